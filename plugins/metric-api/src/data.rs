@@ -1,0 +1,224 @@
+//! A participant's checked data, as every module receives it.
+//!
+//! The loader has already dropped or repaired what it could not trust (and said so in its
+//! diagnostics); what arrives here is sorted by date and in canonical units.
+
+use crate::Targets;
+use crate::units::{Length, Mass};
+use chrono::NaiveDate;
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+
+/// Sex as used by the energy equations.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Sex {
+    /// Female.
+    Female,
+    /// Male.
+    Male,
+}
+
+/// A participant's profile.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Profile {
+    /// Participant id (letters, digits, `-`, `_`); names output files.
+    pub id: String,
+    /// Display name, shown only in the participant's own report.
+    pub name: Option<String>,
+    /// Sex for the energy equations.
+    pub sex: Sex,
+    /// Birth date, when given.
+    pub birth_date: Option<NaiveDate>,
+    /// Age in whole years at enrolment (from `birth_date`, or as given).
+    pub age_years: f64,
+    /// Height.
+    pub height: Length,
+    /// Enrolment date.
+    pub enrolled: NaiveDate,
+    /// Withdrawal date, when the participant left.
+    pub withdrew: Option<NaiveDate>,
+    /// Group attributes (site, team, …).
+    pub groups: BTreeMap<String, String>,
+    /// Baseline body fat, % of body weight, when measured.
+    pub body_fat_percent: Option<f64>,
+    /// Targets after applying the participant's overrides to the program's.
+    pub targets: Targets,
+    /// Clinical flags that change cautions (e.g. `glucose-lowering-medication`).
+    pub flags: Vec<String>,
+}
+
+impl Profile {
+    /// Age in years on day `d` (fractional), from the birth date when known.
+    pub fn age_on(&self, d: NaiveDate) -> f64 {
+        match self.birth_date {
+            Some(b) => (d - b).num_days() as f64 / 365.2425,
+            None => self.age_years + (d - self.enrolled).num_days() as f64 / 365.2425,
+        }
+    }
+}
+
+/// One weigh-in.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WeighIn {
+    /// Day of the weigh-in.
+    pub date: NaiveDate,
+    /// Time of day as written (`HH:MM`), when given.
+    pub time: Option<String>,
+    /// Body weight.
+    pub weight: Mass,
+    /// Where it came from (`home-scale`, `clinic`, …), when given.
+    pub source: Option<String>,
+}
+
+/// Logged intake for one day (several rows a day are summed by the loader).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct IntakeDay {
+    /// Day.
+    pub date: NaiveDate,
+    /// Energy, kcal.
+    pub kcal: f64,
+    /// Carbohydrate, g.
+    pub carbs_g: Option<f64>,
+    /// Fat, g.
+    pub fat_g: Option<f64>,
+    /// Protein, g.
+    pub protein_g: Option<f64>,
+    /// Free sugars, g.
+    pub free_sugars_g: Option<f64>,
+}
+
+/// Intensity class of an activity by its MET value (2018 US Physical Activity Guidelines).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Intensity {
+    /// Below 3.0 MET.
+    Light,
+    /// 3.0 to below 6.0 MET.
+    Moderate,
+    /// 6.0 MET or more.
+    Vigorous,
+}
+
+impl Intensity {
+    /// Class of a MET value: light < 3.0 ≤ moderate < 6.0 ≤ vigorous
+    /// (2018 Physical Activity Guidelines for Americans, 2nd ed.).
+    pub fn of_met(met: f64) -> Self {
+        if met >= 6.0 {
+            Intensity::Vigorous
+        } else if met >= 3.0 {
+            Intensity::Moderate
+        } else {
+            Intensity::Light
+        }
+    }
+}
+
+/// One logged activity.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ActivityEntry {
+    /// Day.
+    pub date: NaiveDate,
+    /// The activity code or label as written.
+    pub activity: String,
+    /// Minutes.
+    pub minutes: f64,
+    /// MET value used (from the activity table, or as given in the file).
+    pub met: f64,
+    /// Where the MET value came from, e.g. `Compendium 2011 code 17190` or `given in file`.
+    pub met_source: String,
+    /// Steps, when given.
+    pub steps: Option<f64>,
+}
+
+impl ActivityEntry {
+    /// Intensity class of this entry.
+    pub fn intensity(&self) -> Intensity {
+        Intensity::of_met(self.met)
+    }
+}
+
+/// One group session offered, and whether the participant attended.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SessionRecord {
+    /// Day.
+    pub date: NaiveDate,
+    /// Session name or number as written.
+    pub session: String,
+    /// Attended?
+    pub attended: bool,
+}
+
+/// A laboratory test or body measure, in its canonical unit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LabTest {
+    /// Fasting plasma glucose, canonical unit mmol/L.
+    FastingGlucose,
+    /// HbA1c, canonical unit % (NGSP).
+    Hba1c,
+    /// Waist circumference, canonical unit cm.
+    Waist,
+    /// Systolic blood pressure, mmHg.
+    SystolicBp,
+    /// Diastolic blood pressure, mmHg.
+    DiastolicBp,
+}
+
+impl LabTest {
+    /// The canonical unit values are held in.
+    pub fn canonical_unit(self) -> &'static str {
+        match self {
+            LabTest::FastingGlucose => "mmol/L",
+            LabTest::Hba1c => "%",
+            LabTest::Waist => "cm",
+            LabTest::SystolicBp | LabTest::DiastolicBp => "mmHg",
+        }
+    }
+}
+
+/// One lab result, converted to the canonical unit of its test.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct LabResult {
+    /// Day of the sample or measurement.
+    pub date: NaiveDate,
+    /// Which test.
+    pub test: LabTest,
+    /// Value in [`LabTest::canonical_unit`].
+    pub value: f64,
+    /// The unit the file used (for display next to the original value).
+    pub unit_as_written: String,
+    /// The value as written in the file.
+    pub value_as_written: f64,
+}
+
+/// One participant's checked data.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ParticipantData {
+    /// Profile.
+    pub profile: Profile,
+    /// Weigh-ins, sorted by date then time.
+    pub weights: Vec<WeighIn>,
+    /// Daily intake, one entry per logged day, sorted.
+    pub intake: Vec<IntakeDay>,
+    /// Activities, sorted by date.
+    pub activity: Vec<ActivityEntry>,
+    /// Sessions, sorted by date.
+    pub sessions: Vec<SessionRecord>,
+    /// Lab results, sorted by date.
+    pub labs: Vec<LabResult>,
+}
+
+impl ParticipantData {
+    /// Baseline weight: the first weigh-in on or after enrolment (the loader has already dropped
+    /// weigh-ins before enrolment), or `None` without weigh-ins.
+    pub fn baseline_weight(&self) -> Option<&WeighIn> {
+        self.weights.first()
+    }
+
+    /// Body-mass index for `weight` at this participant's height, kg/m².
+    pub fn bmi(&self, weight: crate::units::Mass) -> f64 {
+        let m = self.profile.height.m();
+        weight.kg() / (m * m)
+    }
+}

@@ -1,0 +1,35 @@
+//! Documented process exit codes. When several apply, the highest number wins.
+//! Mirrored in README.md (section "Exit codes") and in `cohortpress --help`.
+
+/// Everything was clean and every output was written.
+pub const SUCCESS: i32 = 0;
+/// The run completed, but some inputs gave warnings (values dropped or suspicious).
+pub const WARNINGS: i32 = 1;
+/// The command line was wrong (clap's usage errors also exit with 2).
+pub const USAGE: i32 = 2;
+/// `program.yaml` (or the program folder itself) is invalid; nothing was computed.
+pub const PROGRAM_INVALID: i32 = 3;
+/// Some participants had errors and were left out; every other participant was processed.
+pub const PARTICIPANT_ERRORS: i32 = 4;
+/// A metric module (built-in or external) failed for some participants; their other
+/// modules' results and reports were still written.
+pub const MODULE_FAILED: i32 = 5;
+/// Writing outputs failed; the previous outputs were left as they were.
+pub const OUTPUT_FAILED: i32 = 6;
+/// Another run holds the lock on the output folder.
+pub const LOCKED: i32 = 7;
+/// An internal error (a bug): please report it.
+pub const INTERNAL: i32 = 70;
+
+/// One line per code, for `--help` and the README.
+pub const TABLE: &[(i32, &str)] = &[
+    (SUCCESS, "clean: every input was usable and every output was written"),
+    (WARNINGS, "done, with warnings about some inputs (values dropped or suspicious)"),
+    (USAGE, "the command line was wrong"),
+    (PROGRAM_INVALID, "program.yaml or the program folder is invalid; nothing was computed"),
+    (PARTICIPANT_ERRORS, "some participants had errors and were left out; the others were processed"),
+    (MODULE_FAILED, "a metric module failed for some participants; the rest of the run went on"),
+    (OUTPUT_FAILED, "writing outputs failed; previous outputs were left intact"),
+    (LOCKED, "another run holds the lock on the output folder"),
+    (INTERNAL, "internal error (a bug)"),
+];
