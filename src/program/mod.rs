@@ -1,1 +1,239 @@
-//! (being written)
+//! The program definition, `program.yaml` (format version 1).
+//!
+//! [`ProgramDef`] is the file as written (serde, unknown keys refused); [`Program`] is the checked
+//! result with resolved paths and the [`ProgramInfo`] every module receives. Loading and the
+//! semantic checks live in [`load`].
+
+pub mod load;
+
+pub use load::load_program;
+
+use chrono::NaiveDate;
+use cohortpress_metric_api::{ProgramInfo, UnitSystem};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+
+/// The only format version this build reads.
+pub const FORMAT_VERSION: u32 = 1;
+
+/// `program.yaml` as written.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProgramDef {
+    /// Must be 1.
+    pub format_version: u32,
+    /// Identity and dates.
+    pub program: ProgramMetaDef,
+    /// Display units (computation is always metric). Default `metric`.
+    #[serde(default)]
+    pub units: UnitSystem,
+    /// Program targets; any key left out takes its default.
+    #[serde(default)]
+    pub targets: TargetsDef,
+    /// Metric modules, in the order they run.
+    pub modules: Vec<ModuleDef>,
+    /// Report settings.
+    #[serde(default)]
+    pub report: ReportDef,
+    /// Privacy settings for group reports.
+    #[serde(default)]
+    pub privacy: PrivacyDef,
+    /// How input files are read.
+    #[serde(default)]
+    pub input: InputDef,
+}
+
+/// `program:` — identity and dates.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProgramMetaDef {
+    /// Program id: letters, digits, `-`, `_`.
+    pub id: String,
+    /// Title shown on every report.
+    pub title: String,
+    /// Who sponsors the program (shown on group reports).
+    #[serde(default)]
+    pub sponsor: Option<String>,
+    /// First day.
+    pub start: NaiveDate,
+    /// Last day.
+    pub end: NaiveDate,
+}
+
+/// `targets:` — every key optional; defaults from [`cohortpress_metric_api::Targets::default`].
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TargetsDef {
+    /// % of baseline weight, negative = loss (default −5).
+    pub weight_change_percent: Option<f64>,
+    /// Moderate-equivalent minutes per week (default 150).
+    pub activity_minutes_per_week: Option<f64>,
+    /// Weigh-ins per week (default 3).
+    pub weigh_ins_per_week: Option<f64>,
+    /// Food-log days per week (default 5).
+    pub food_log_days_per_week: Option<f64>,
+    /// Group sessions offered over the program (default 16).
+    pub sessions_offered: Option<u32>,
+}
+
+impl TargetsDef {
+    /// Applies the keys given here on top of `base`.
+    pub fn apply(&self, base: &cohortpress_metric_api::Targets) -> cohortpress_metric_api::Targets {
+        cohortpress_metric_api::Targets {
+            weight_change_percent: self.weight_change_percent.unwrap_or(base.weight_change_percent),
+            activity_minutes_per_week: self
+                .activity_minutes_per_week
+                .unwrap_or(base.activity_minutes_per_week),
+            weigh_ins_per_week: self.weigh_ins_per_week.unwrap_or(base.weigh_ins_per_week),
+            food_log_days_per_week: self
+                .food_log_days_per_week
+                .unwrap_or(base.food_log_days_per_week),
+            sessions_offered: self.sessions_offered.unwrap_or(base.sessions_offered),
+        }
+    }
+}
+
+/// One entry of `modules:`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ModuleDef {
+    /// Module id: a built-in id (`trend`, `energy`, `adherence`, `outcomes`) or, with
+    /// `command`, the id an external module answers with.
+    pub id: String,
+    /// External module: program and arguments (no shell). A first element with a `/` is resolved
+    /// against the program folder; a bare name is looked up on PATH.
+    #[serde(default)]
+    pub command: Option<Vec<String>>,
+    /// External module: seconds one call may take (default 30).
+    #[serde(default)]
+    pub timeout_seconds: Option<f64>,
+    /// External module: when the command cannot be found, warn and skip instead of failing.
+    #[serde(default)]
+    pub optional: bool,
+    /// The module's own settings, checked against the module's spec.
+    #[serde(default)]
+    pub with: Option<serde_yaml::Value>,
+}
+
+/// Report period used when the command line does not give one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum DefaultPeriod {
+    /// The last full calendar month before the as-of date, clipped to the program.
+    #[default]
+    LastFullMonth,
+    /// From the program start to the as-of date (clipped to the program end).
+    ProgramToDate,
+}
+
+/// An output format.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Format {
+    /// Self-contained HTML.
+    Html,
+    /// PDF.
+    Pdf,
+}
+
+/// `report:` — report settings.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ReportDef {
+    /// Period when the command line gives none (default `last_full_month`).
+    #[serde(default)]
+    pub period: DefaultPeriod,
+    /// Formats to write (default both).
+    #[serde(default = "default_formats")]
+    pub formats: Vec<Format>,
+    /// Folder, relative to the program folder, whose files override the built-in templates
+    /// file by file.
+    #[serde(default)]
+    pub templates: Option<PathBuf>,
+    /// Group attributes to split the group report by (each value gets its own section).
+    #[serde(default)]
+    pub group_by: Vec<String>,
+    /// Output folder, relative to the program folder (default `reports`).
+    #[serde(default = "default_out")]
+    pub out: PathBuf,
+}
+
+fn default_formats() -> Vec<Format> {
+    vec![Format::Html, Format::Pdf]
+}
+
+fn default_out() -> PathBuf {
+    PathBuf::from("reports")
+}
+
+impl Default for ReportDef {
+    fn default() -> Self {
+        ReportDef {
+            period: DefaultPeriod::default(),
+            formats: default_formats(),
+            templates: None,
+            group_by: Vec::new(),
+            out: default_out(),
+        }
+    }
+}
+
+/// `privacy:` — group report protection.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PrivacyDef {
+    /// Smallest count shown in a group report; counts from 1 to `min_cell_size − 1` are
+    /// suppressed (default 11, after the CMS cell size suppression policy: no cell of 1 to 10).
+    #[serde(default = "default_min_cell")]
+    pub min_cell_size: u32,
+}
+
+fn default_min_cell() -> u32 {
+    11
+}
+
+impl Default for PrivacyDef {
+    fn default() -> Self {
+        PrivacyDef { min_cell_size: default_min_cell() }
+    }
+}
+
+/// `input:` — how CSV files are read.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct InputDef {
+    /// chrono format of dates in CSV files (default `%Y-%m-%d`).
+    #[serde(default = "default_date_format")]
+    pub date_format: String,
+    /// Field delimiter, one character (default `,`).
+    #[serde(default = "default_delimiter")]
+    pub delimiter: char,
+}
+
+fn default_date_format() -> String {
+    "%Y-%m-%d".into()
+}
+
+fn default_delimiter() -> char {
+    ','
+}
+
+impl Default for InputDef {
+    fn default() -> Self {
+        InputDef { date_format: default_date_format(), delimiter: default_delimiter() }
+    }
+}
+
+/// A loaded and checked program.
+#[derive(Debug, Clone)]
+pub struct Program {
+    /// The program folder.
+    pub root: PathBuf,
+    /// The definition as written.
+    pub def: ProgramDef,
+    /// What modules receive.
+    pub info: ProgramInfo,
+    /// Line of each `modules:` entry in program.yaml (for diagnostics), by index.
+    pub module_lines: BTreeMap<usize, u64>,
+}
