@@ -1,1 +1,253 @@
-//! (being written)
+//! The one place YAML is parsed. Everything else calls [`from_str`], so a maintained fork of the
+//! YAML crate could replace serde_yaml (0.9, no longer updated upstream) here alone.
+//!
+//! serde_yaml's own limits protect us from hostile files: an alias bomb ("billion laughs") stops
+//! with "repetition limit exceeded" and deep nesting with "recursion limit exceeded". Its errors
+//! are turned into a [`Diagnostic`] with line, column, key path and a hint.
+
+use crate::diag::Diagnostic;
+use serde::de::DeserializeOwned;
+
+/// Parses `text` (the content of `file`, a path relative to the program folder) into `T`.
+///
+/// On failure the diagnostic names the line and column, the key path (`program.start`) when
+/// serde_yaml knows it, what was expected and found, and a hint.
+pub fn from_str<T: DeserializeOwned>(text: &str, file: &str) -> Result<T, Diagnostic> {
+    serde_yaml::from_str(text).map_err(|e| to_diagnostic(&e, file))
+}
+
+/// Parses `text` into an untyped YAML value (for module settings).
+pub fn value_from_str(text: &str, file: &str) -> Result<serde_yaml::Value, Diagnostic> {
+    from_str(text, file)
+}
+
+/// The YAML value type, re-exported so callers need not name the crate.
+pub type Value = serde_yaml::Value;
+
+fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
+    let full = e.to_string();
+    // serde_yaml appends " at line L column C" (and for libyaml errors a second context
+    // "…, while parsing … at line …"); the location goes into the diagnostic's fields instead.
+    let text = strip_locations(&full);
+    let (path, msg) = split_path(&text);
+    let mut d = Diagnostic::error(file, describe(&msg));
+    if let Some(loc) = e.location() {
+        d = d.at(loc.line() as u64, Some(loc.column() as u64));
+    }
+    if let Some(p) = path {
+        d = d.field(p);
+    }
+    if let Some(rest) = msg.strip_prefix("unknown field `") {
+        if let Some((key, tail)) = rest.split_once('`') {
+            d = d.found(format!("`{key}`"));
+            if let Some(exp) = tail.strip_prefix(", expected ") {
+                d = d.expected(exp.to_string());
+            } else if tail.contains("there are no fields") {
+                d = d.expected("no keys here");
+            }
+            d = d.hint("check the spelling (keys are lowercase, with `_` between words) and the indentation");
+        }
+    } else if let Some(rest) = msg.strip_prefix("unknown variant `") {
+        if let Some((val, tail)) = rest.split_once('`') {
+            d = d.found(format!("`{val}`"));
+            if let Some(exp) = tail.strip_prefix(", expected ") {
+                d = d.expected(exp.to_string());
+            }
+            d = d.hint("use one of the listed values, spelled exactly");
+        }
+    } else if let Some(rest) = msg.strip_prefix("missing field `") {
+        let key = rest.split('`').next().unwrap_or_default();
+        d = d
+            .expected(format!("a `{key}:` key"))
+            .hint(format!("add `{key}:` with a value"));
+    } else if let Some(rest) = msg.strip_prefix("invalid type: ") {
+        if let Some((found, exp)) = rest.split_once(", expected ") {
+            d = d.found(found.to_string()).expected(exp.to_string());
+        }
+        d = d.hint(
+            "quote text that YAML would read as a number or date, and check the value's kind",
+        );
+    } else if let Some(rest) = msg.strip_prefix("invalid value: ") {
+        if let Some((found, exp)) = rest.split_once(", expected ") {
+            d = d.found(found.to_string()).expected(exp.to_string());
+        }
+    } else if is_date_error(&msg) {
+        d = d
+            .expected("a date written YYYY-MM-DD")
+            .hint("write dates as year-month-day, e.g. 2026-04-01, and check the day exists");
+    } else if msg.contains("repetition limit exceeded") {
+        d = d.hint(
+            "the file expands YAML aliases (`*name`) too many times; write the values out instead",
+        );
+    } else if msg.contains("recursion limit exceeded") {
+        d = d.hint("the file nests lists or mappings too deeply; flatten it");
+    } else if msg.contains("more than one document") {
+        d = d.hint("remove the `---` separators: a file holds one document");
+    } else if msg.contains("did not find expected")
+        || msg.contains("mapping values are not allowed")
+        || msg.contains("found character that cannot start")
+    {
+        d = d.hint("check indentation (spaces, not tabs) and quote values containing `:` or `#`");
+    }
+    d
+}
+
+/// Messages chrono gives for dates it cannot parse.
+fn is_date_error(msg: &str) -> bool {
+    [
+        "input contains invalid characters",
+        "premature end of input",
+        "input is out of range",
+        "trailing input",
+        "input is not enough for unique date",
+        "no possible date and time matching input",
+    ]
+    .iter()
+    .any(|m| msg.contains(m))
+}
+
+fn describe(msg: &str) -> String {
+    if is_date_error(msg) {
+        format!("not a valid date ({msg})")
+    } else {
+        msg.to_string()
+    }
+}
+
+/// Removes every " at line L column C" from a serde_yaml message.
+fn strip_locations(s: &str) -> String {
+    let mut out = String::new();
+    let mut rest = s;
+    while let Some(i) = rest.find(" at line ") {
+        out.push_str(&rest[..i]);
+        let after = &rest[i + " at line ".len()..];
+        // Skip "L column C".
+        let skip = after
+            .char_indices()
+            .find(|&(_, c)| !(c.is_ascii_digit() || c == ' ' || "column".contains(c)))
+            .map_or(after.len(), |(j, _)| j);
+        rest = &after[skip..];
+    }
+    out.push_str(rest);
+    out.trim().to_string()
+}
+
+/// Splits serde_yaml's "key.path: message" into the path and the message.
+fn split_path(s: &str) -> (Option<String>, String) {
+    if let Some((p, m)) = s.split_once(": ") {
+        let plain = !p.is_empty()
+            && p.chars()
+                .all(|c| c.is_ascii_alphanumeric() || "._-[]".contains(c))
+            && !p.starts_with("invalid")
+            && !p.starts_with("unknown")
+            && !p.starts_with("missing");
+        if plain {
+            return (Some(p.to_string()), m.to_string());
+        }
+    }
+    (None, s.to_string())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use serde::Deserialize;
+
+    #[derive(Debug, Deserialize)]
+    #[serde(deny_unknown_fields)]
+    #[allow(dead_code)]
+    struct Inner {
+        start: chrono::NaiveDate,
+        count: u32,
+    }
+
+    #[derive(Debug, Deserialize)]
+    #[serde(deny_unknown_fields)]
+    #[allow(dead_code)]
+    struct Outer {
+        name: String,
+        inner: Inner,
+    }
+
+    #[test]
+    fn unknown_key_is_named_with_its_line() {
+        let text = "name: a\ninner:\n  start: 2026-04-01\n  count: 3\n  colour: red\n";
+        let d = from_str::<Outer>(text, "program.yaml").unwrap_err();
+        assert_eq!(d.line, Some(5), "{d}");
+        assert_eq!(d.column, Some(3), "{d}");
+        assert_eq!(d.found.as_deref(), Some("`colour`"));
+        assert!(d.expected.as_deref().unwrap().contains("`start`"), "{d}");
+        assert_eq!(d.field.as_deref(), Some("inner"));
+        assert!(d.message.contains("unknown field `colour`"), "{d}");
+        assert!(!d.message.contains("at line"), "{d}");
+        assert!(d.hint.is_some());
+    }
+
+    #[test]
+    fn bad_date_gives_line_and_hint() {
+        let text = "name: a\ninner:\n  start: 2026-02-30\n  count: 3\n";
+        let d = from_str::<Outer>(text, "program.yaml").unwrap_err();
+        assert_eq!(d.line, Some(3), "{d}");
+        assert_eq!(d.field.as_deref(), Some("inner.start"), "{d}");
+        assert!(d.message.contains("not a valid date"), "{d}");
+        assert!(d.hint.as_deref().unwrap().contains("2026-04-01"));
+    }
+
+    #[test]
+    fn wrong_type_says_expected_and_found() {
+        let text = "name: a\ninner:\n  start: 2026-02-03\n  count: many\n";
+        let d = from_str::<Outer>(text, "x.yaml").unwrap_err();
+        assert_eq!(d.line, Some(4), "{d}");
+        assert_eq!(d.found.as_deref(), Some("string \"many\""), "{d}");
+        assert!(d.expected.as_deref().unwrap().contains("u32"), "{d}");
+    }
+
+    #[test]
+    fn missing_key_is_named() {
+        let d = from_str::<Outer>("name: a\n", "x.yaml").unwrap_err();
+        assert!(d.message.contains("missing field `inner`"), "{d}");
+        assert_eq!(d.hint.as_deref(), Some("add `inner:` with a value"));
+    }
+
+    #[test]
+    fn syntax_error_has_location() {
+        let d = from_str::<Outer>("name: a\n  inner: [1, 2\n", "x.yaml").unwrap_err();
+        assert!(d.line.is_some(), "{d}");
+    }
+
+    #[test]
+    fn alias_bomb_is_refused() {
+        // "Billion laughs": nine levels of nine-fold aliases would expand to 9^9 leaves.
+        let mut text = String::from(
+            "a: &a [\"lol\",\"lol\",\"lol\",\"lol\",\"lol\",\"lol\",\"lol\",\"lol\",\"lol\"]\n",
+        );
+        let names = ["a", "b", "c", "d", "e", "f", "g", "h", "i"];
+        for w in names.windows(2) {
+            let (prev, next) = (w[0], w[1]);
+            let refs = vec![format!("*{prev}"); 9].join(",");
+            text.push_str(&format!("{next}: &{next} [{refs}]\n"));
+        }
+        let d = from_str::<Value>(&text, "bomb.yaml").unwrap_err();
+        assert!(d.message.contains("repetition limit exceeded"), "{d}");
+        assert!(d.hint.as_deref().unwrap().contains("alias"));
+    }
+
+    #[test]
+    fn deep_nesting_is_refused() {
+        let text = format!("{}{}", "[".repeat(100_000), "]".repeat(100_000));
+        let d = from_str::<Value>(&text, "deep.yaml").unwrap_err();
+        assert!(d.message.contains("recursion limit exceeded"), "{d}");
+        assert_eq!(d.line, Some(1));
+        assert!(d.hint.as_deref().unwrap().contains("nests"));
+    }
+
+    #[test]
+    fn strip_locations_removes_every_location() {
+        assert_eq!(
+            strip_locations(
+                "did not find expected key at line 3 column 5, while parsing a block mapping at line 1 column 1"
+            ),
+            "did not find expected key, while parsing a block mapping"
+        );
+    }
+}
