@@ -1,1 +1,640 @@
-//! placeholder
+//! The built-in `adherence` metric module of cohortpress.
+//!
+//! It answers "how closely did this participant follow the program, week by week?": days with a
+//! weigh-in, days with a food log, activity minutes against the weekly target, group sessions
+//! offered and attended, the longest run of daily weigh-ins and the longest run of days with no
+//! record at all.
+//!
+//! # Weeks
+//!
+//! Weeks are ISO weeks: they start on a **Monday** ([`week_start`]). The weekly table runs from
+//! the week that holds the enrolment date to the week that holds the end of observation, which
+//! is `period.to` or, for a participant who withdrew earlier, the withdrawal date. Only days from
+//! enrolment to the end of observation count ("covered days"); nothing dated after a withdrawal
+//! counts. The first and the last week may therefore be partial. In a partial week every weekly
+//! target is scaled by `covered days / 7` (a week with 3 covered days and a target of
+//! 150 minutes needs 150 × 3/7 ≈ 64.3 minutes); the `days_covered` column shows which weeks
+//! were partial.
+//!
+//! # Activity minutes
+//!
+//! Activity is counted in *moderate-equivalent minutes*: moderate minutes + 2 × vigorous
+//! minutes; light minutes are not counted. Intensity comes from the MET value
+//! ([`Intensity::of_met`]: light < 3.0 ≤ moderate < 6.0 ≤ vigorous). The equivalence of one
+//! vigorous minute to two moderate minutes and the 150 minutes/week minimum are those of the
+//! *Physical Activity Guidelines for Americans*, 2nd ed. (US DHHS 2018) and the WHO *Guidelines on
+//! physical activity and sedentary behaviour* (2020).
+//!
+//! # Period scalars
+//!
+//! Rates per week use the covered days of the reporting period (`ctx.period`), so a participant
+//! who enrolled mid-period is not penalised for the days before enrolment. A week counts towards
+//! `weeks_meeting_activity_target_percent` when it overlaps the covered part of the period.
+//! Streaks and gaps are computed over the whole program to date.
+
+#![warn(missing_docs)]
+
+use chrono::{Datelike, Duration, NaiveDate};
+use cohortpress_metric_api::{
+    ActivityEntry, Cell, Column, FlagSeverity, Intensity, MetricModule, ModuleContext, ModuleError,
+    ModuleOutput, ModuleSpec, OutputSpec, ParticipantData, Point, Series, SettingKind, SettingSpec,
+    Table,
+};
+use std::collections::{BTreeMap, BTreeSet};
+
+/// Id of this module in `program.yaml`.
+pub const MODULE_ID: &str = "adherence";
+
+/// Default length of a run of days with no record that raises the `gap` flag.
+///
+/// Two weeks without any record is a common practice threshold for a check-in call.
+pub const DEFAULT_GAP_FLAG_DAYS: i64 = 14;
+
+/// Weekly adherence: weigh-ins, food logs, activity, sessions, streaks and gaps.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct AdherenceModule;
+
+/// The Monday that starts the ISO week holding `d`.
+///
+/// # Examples
+///
+/// ```
+/// use chrono::NaiveDate;
+/// use cohortpress_metric_adherence::week_start;
+/// let sunday = NaiveDate::from_ymd_opt(2027, 3, 7).unwrap();
+/// assert_eq!(week_start(sunday), NaiveDate::from_ymd_opt(2027, 3, 1).unwrap());
+/// ```
+pub fn week_start(d: NaiveDate) -> NaiveDate {
+    d - Duration::days(i64::from(d.weekday().num_days_from_monday()))
+}
+
+/// Moderate-equivalent minutes of one activity entry.
+///
+/// # Formula
+///
+/// moderate → minutes; vigorous → 2 × minutes; light → 0. One vigorous minute counts as two
+/// moderate minutes (Physical Activity Guidelines for Americans, 2nd ed., US DHHS 2018; WHO
+/// 2020 guidelines on physical activity and sedentary behaviour).
+pub fn moderate_equivalent_minutes(entry: &ActivityEntry) -> f64 {
+    match Intensity::of_met(entry.met) {
+        Intensity::Light => 0.0,
+        Intensity::Moderate => entry.minutes,
+        Intensity::Vigorous => 2.0 * entry.minutes,
+    }
+}
+
+/// Days from `a` to `b` inclusive (0 when `b < a`).
+fn span_days(a: NaiveDate, b: NaiveDate) -> i64 {
+    ((b - a).num_days() + 1).max(0)
+}
+
+/// Number of members of `set` in `[a, b]`.
+fn count_in(set: &BTreeSet<NaiveDate>, a: NaiveDate, b: NaiveDate) -> usize {
+    if b < a { 0 } else { set.range(a..=b).count() }
+}
+
+/// Sum of the values of `map` in `[a, b]`.
+fn sum_in(map: &BTreeMap<NaiveDate, f64>, a: NaiveDate, b: NaiveDate) -> f64 {
+    if b < a {
+        0.0
+    } else {
+        map.range(a..=b).map(|(_, v)| v).sum()
+    }
+}
+
+/// A week of the weekly table, computed once and used by the table, the series and the scalars.
+#[derive(Debug, Clone)]
+struct Week {
+    start: NaiveDate,
+    covered: i64,
+    weigh_ins: usize,
+    food_log_days: usize,
+    activity_minutes: f64,
+    sessions_offered: usize,
+    sessions_attended: usize,
+    met_weigh_in: bool,
+    met_food_log: bool,
+    met_activity: bool,
+}
+
+/// The participant's records, reduced to what adherence needs, within the observation window.
+struct Records {
+    weigh_in_days: BTreeSet<NaiveDate>,
+    food_days: BTreeSet<NaiveDate>,
+    activity_minutes: BTreeMap<NaiveDate, f64>,
+    /// Days with any activity entry, light ones included (they still show engagement).
+    activity_days: BTreeSet<NaiveDate>,
+    /// (date, attended)
+    sessions: Vec<(NaiveDate, bool)>,
+}
+
+impl Records {
+    fn collect(data: &ParticipantData, start: NaiveDate, end: NaiveDate) -> Self {
+        let inside = |d: NaiveDate| d >= start && d <= end;
+        let mut activity_minutes = BTreeMap::new();
+        let mut activity_days = BTreeSet::new();
+        for a in data.activity.iter().filter(|a| inside(a.date)) {
+            *activity_minutes.entry(a.date).or_insert(0.0) += moderate_equivalent_minutes(a);
+            activity_days.insert(a.date);
+        }
+        Records {
+            weigh_in_days: data
+                .weights
+                .iter()
+                .map(|w| w.date)
+                .filter(|d| inside(*d))
+                .collect(),
+            food_days: data
+                .intake
+                .iter()
+                .map(|i| i.date)
+                .filter(|d| inside(*d))
+                .collect(),
+            activity_minutes,
+            activity_days,
+            sessions: data
+                .sessions
+                .iter()
+                .filter(|s| inside(s.date))
+                .map(|s| (s.date, s.attended))
+                .collect(),
+        }
+    }
+
+    fn sessions_in(&self, a: NaiveDate, b: NaiveDate) -> (usize, usize) {
+        let mut offered = 0;
+        let mut attended = 0;
+        for &(d, att) in &self.sessions {
+            if d >= a && d <= b {
+                offered += 1;
+                attended += usize::from(att);
+            }
+        }
+        (offered, attended)
+    }
+}
+
+/// Meets `target` per week, scaled to `covered` days? A tiny tolerance keeps a scaled target
+/// such as 3 × 7/7 from failing on floating-point round-off.
+fn meets(value: f64, target_per_week: f64, covered: i64) -> bool {
+    value + 1e-9 >= target_per_week * covered as f64 / 7.0
+}
+
+fn yes_no(b: bool) -> Cell {
+    Cell::Text(if b { "yes" } else { "no" }.into())
+}
+
+fn col(name: &str, unit: &str, label: &str) -> Column {
+    Column {
+        name: name.into(),
+        unit: unit.into(),
+        label: label.into(),
+    }
+}
+
+fn out(name: &str, kind: &str, unit: &str, description: &str) -> OutputSpec {
+    OutputSpec {
+        name: name.into(),
+        kind: kind.into(),
+        unit: unit.into(),
+        description: description.into(),
+    }
+}
+
+/// Longest run of consecutive days in `days`.
+fn longest_streak(days: &BTreeSet<NaiveDate>) -> i64 {
+    let mut best = 0;
+    let mut run = 0;
+    let mut prev: Option<NaiveDate> = None;
+    for &d in days {
+        run = match prev {
+            Some(p) if (d - p).num_days() == 1 => run + 1,
+            _ => 1,
+        };
+        best = best.max(run);
+        prev = Some(d);
+    }
+    best
+}
+
+/// Longest run of days in `[start, end]` that are not in `days`, and the run that ends at `end`.
+fn gaps(days: &BTreeSet<NaiveDate>, start: NaiveDate, end: NaiveDate) -> (i64, i64) {
+    let mut longest = 0;
+    let mut prev: Option<NaiveDate> = None;
+    for &d in days.range(start..=end) {
+        let gap = match prev {
+            Some(p) => (d - p).num_days() - 1,
+            None => (d - start).num_days(),
+        };
+        longest = longest.max(gap);
+        prev = Some(d);
+    }
+    let current = match prev {
+        Some(p) => (end - p).num_days(),
+        None => span_days(start, end),
+    };
+    (longest.max(current), current)
+}
+
+impl MetricModule for AdherenceModule {
+    fn spec(&self) -> ModuleSpec {
+        ModuleSpec {
+            id: MODULE_ID.into(),
+            version: env!("CARGO_PKG_VERSION").into(),
+            description:
+                "Adherence by Monday-based ISO week: days with a weigh-in, food-log days, \
+                moderate-equivalent activity minutes (moderate + 2 × vigorous, by MET intensity; \
+                Physical Activity Guidelines for Americans 2nd ed. 2018, WHO 2020), group sessions \
+                offered and attended, and whether each weekly target was met (partial weeks scale \
+                the target by covered days / 7). Also rates for the reporting period, the longest \
+                weigh-in streak and the longest gap without any record."
+                    .into(),
+            settings: vec![SettingSpec {
+                name: "gap_flag_days".into(),
+                kind: SettingKind::Integer,
+                default: serde_json::json!(DEFAULT_GAP_FLAG_DAYS),
+                unit: "d".into(),
+                choices: vec![],
+                min: Some(1.0),
+                max: Some(365.0),
+                description: "days without any weigh-in, food log or activity that raise the \
+                    `gap` flag (common practice: 14)"
+                    .into(),
+            }],
+            outputs: vec![
+                out(
+                    "weekly",
+                    "table",
+                    "",
+                    "one row per ISO week with counts and targets met",
+                ),
+                out(
+                    "weekly_activity_minutes",
+                    "series",
+                    "min",
+                    "moderate-equivalent minutes per week",
+                ),
+                out(
+                    "weekly_weigh_ins",
+                    "series",
+                    "d",
+                    "days with a weigh-in per week",
+                ),
+                out(
+                    "weekly_food_log_days",
+                    "series",
+                    "d",
+                    "days with a food log per week",
+                ),
+                out(
+                    "weigh_ins_per_week",
+                    "scalar",
+                    "d/wk",
+                    "days with a weigh-in per week, period",
+                ),
+                out(
+                    "food_log_days_per_week",
+                    "scalar",
+                    "d/wk",
+                    "food-log days per week, period",
+                ),
+                out(
+                    "activity_minutes_per_week",
+                    "scalar",
+                    "min/wk",
+                    "moderate-equivalent minutes per week, period",
+                ),
+                out(
+                    "sessions_offered",
+                    "scalar",
+                    "",
+                    "sessions offered in the period",
+                ),
+                out(
+                    "sessions_attended",
+                    "scalar",
+                    "",
+                    "sessions attended in the period",
+                ),
+                out(
+                    "attendance_percent",
+                    "scalar",
+                    "%",
+                    "sessions attended / offered in the period",
+                ),
+                out(
+                    "weeks_meeting_activity_target_percent",
+                    "scalar",
+                    "%",
+                    "weeks of the period meeting the activity target",
+                ),
+                out(
+                    "longest_weigh_in_streak_days",
+                    "scalar",
+                    "d",
+                    "longest run of days with a weigh-in, program to date",
+                ),
+                out(
+                    "longest_gap_days",
+                    "scalar",
+                    "d",
+                    "longest run of days with no record, program to date",
+                ),
+                out(
+                    "days_since_last_record",
+                    "scalar",
+                    "d",
+                    "days from the last record to the end of observation",
+                ),
+                out(
+                    "gap",
+                    "flag",
+                    "",
+                    "no record for gap_flag_days days or more",
+                ),
+            ],
+            requires: vec![],
+        }
+    }
+
+    fn compute(
+        &self,
+        ctx: &ModuleContext,
+        data: &ParticipantData,
+    ) -> Result<ModuleOutput, ModuleError> {
+        let profile = &data.profile;
+        let targets = &profile.targets;
+        let start = profile.enrolled;
+        let end = match profile.withdrew {
+            Some(w) if w < ctx.period.to => w,
+            _ => ctx.period.to,
+        };
+        let withdrawn = profile.withdrew.is_some_and(|w| w <= ctx.period.to);
+        let rec = Records::collect(data, start, end);
+
+        // Weekly rows.
+        let mut weeks = Vec::new();
+        if start <= end {
+            let mut ws = week_start(start);
+            while ws <= end {
+                let we = ws + Duration::days(6);
+                let (a, b) = (ws.max(start), we.min(end));
+                let covered = span_days(a, b);
+                let weigh_ins = count_in(&rec.weigh_in_days, a, b);
+                let food_log_days = count_in(&rec.food_days, a, b);
+                let activity_minutes = sum_in(&rec.activity_minutes, a, b);
+                let (sessions_offered, sessions_attended) = rec.sessions_in(a, b);
+                weeks.push(Week {
+                    start: ws,
+                    covered,
+                    weigh_ins,
+                    food_log_days,
+                    activity_minutes,
+                    sessions_offered,
+                    sessions_attended,
+                    met_weigh_in: meets(weigh_ins as f64, targets.weigh_ins_per_week, covered),
+                    met_food_log: meets(
+                        food_log_days as f64,
+                        targets.food_log_days_per_week,
+                        covered,
+                    ),
+                    met_activity: meets(
+                        activity_minutes,
+                        targets.activity_minutes_per_week,
+                        covered,
+                    ),
+                });
+                ws += Duration::days(7);
+            }
+        }
+
+        let mut output = ModuleOutput::default();
+        output.tables.push(Table {
+            name: "weekly".into(),
+            label: "Adherence by week (weeks start on Monday)".into(),
+            columns: vec![
+                col("week_start", "", "Week of"),
+                col("days_covered", "d", "Days in program"),
+                col("weigh_ins", "d", "Days weighed"),
+                col("food_log_days", "d", "Days with food log"),
+                col(
+                    "activity_minutes",
+                    "min",
+                    "Activity minutes (moderate-equivalent)",
+                ),
+                col("sessions_offered", "", "Sessions offered"),
+                col("sessions_attended", "", "Sessions attended"),
+                col("met_weigh_in_target", "", "Weigh-in target met"),
+                col("met_food_log_target", "", "Food-log target met"),
+                col("met_activity_target", "", "Activity target met"),
+            ],
+            rows: weeks
+                .iter()
+                .map(|w| {
+                    vec![
+                        Cell::Text(w.start.to_string()),
+                        Cell::Number(w.covered as f64),
+                        Cell::Number(w.weigh_ins as f64),
+                        Cell::Number(w.food_log_days as f64),
+                        Cell::Number(w.activity_minutes),
+                        Cell::Number(w.sessions_offered as f64),
+                        Cell::Number(w.sessions_attended as f64),
+                        yes_no(w.met_weigh_in),
+                        yes_no(w.met_food_log),
+                        yes_no(w.met_activity),
+                    ]
+                })
+                .collect(),
+        });
+
+        let series = |name: &str, unit: &str, label: &str, f: &dyn Fn(&Week) -> f64| Series {
+            name: name.into(),
+            unit: unit.into(),
+            step: "weekly".into(),
+            label: label.into(),
+            points: weeks
+                .iter()
+                .map(|w| Point {
+                    date: w.start,
+                    value: f(w),
+                    lower: None,
+                    upper: None,
+                })
+                .collect(),
+        };
+        output.series.push(series(
+            "weekly_activity_minutes",
+            "min",
+            "Activity minutes per week (moderate-equivalent)",
+            &|w| w.activity_minutes,
+        ));
+        output.series.push(series(
+            "weekly_weigh_ins",
+            "d",
+            "Days weighed per week",
+            &|w| w.weigh_ins as f64,
+        ));
+        output.series.push(series(
+            "weekly_food_log_days",
+            "d",
+            "Days with a food log per week",
+            &|w| w.food_log_days as f64,
+        ));
+
+        // Reporting-period scalars over the covered part of the period.
+        let (pa, pb) = (ctx.period.from.max(start), end);
+        let covered = span_days(pa, pb);
+        let per_week = |n: f64| (covered > 0).then(|| n * 7.0 / covered as f64);
+        output.push_scalar(
+            "weigh_ins_per_week",
+            per_week(count_in(&rec.weigh_in_days, pa, pb) as f64),
+            "d/wk",
+            "Days weighed per week",
+        );
+        output.push_scalar(
+            "food_log_days_per_week",
+            per_week(count_in(&rec.food_days, pa, pb) as f64),
+            "d/wk",
+            "Days with a food log per week",
+        );
+        output.push_scalar(
+            "activity_minutes_per_week",
+            per_week(sum_in(&rec.activity_minutes, pa, pb)),
+            "min/wk",
+            "Activity minutes per week (moderate-equivalent)",
+        );
+        let (offered, attended) = rec.sessions_in(pa, pb);
+        output.push_scalar(
+            "sessions_offered",
+            Some(offered as f64),
+            "",
+            "Sessions offered",
+        );
+        output.push_scalar(
+            "sessions_attended",
+            Some(attended as f64),
+            "",
+            "Sessions attended",
+        );
+        output.push_scalar(
+            "attendance_percent",
+            (offered > 0).then(|| 100.0 * attended as f64 / offered as f64),
+            "%",
+            "Sessions attended",
+        );
+        let period_weeks: Vec<&Week> = weeks
+            .iter()
+            .filter(|w| covered > 0 && w.start <= pb && w.start + Duration::days(6) >= pa)
+            .collect();
+        output.push_scalar(
+            "weeks_meeting_activity_target_percent",
+            (!period_weeks.is_empty()).then(|| {
+                100.0 * period_weeks.iter().filter(|w| w.met_activity).count() as f64
+                    / period_weeks.len() as f64
+            }),
+            "%",
+            "Weeks meeting the activity target",
+        );
+
+        // Program-to-date streaks and gaps.
+        let observed = start <= end;
+        output.push_scalar(
+            "longest_weigh_in_streak_days",
+            observed.then(|| longest_streak(&rec.weigh_in_days) as f64),
+            "d",
+            "Longest run of days weighed",
+        );
+        let any_record: BTreeSet<NaiveDate> = rec
+            .weigh_in_days
+            .iter()
+            .chain(&rec.food_days)
+            .chain(&rec.activity_days)
+            .copied()
+            .collect();
+        let (longest_gap, current_gap) = if observed {
+            gaps(&any_record, start, end)
+        } else {
+            (0, 0)
+        };
+        output.push_scalar(
+            "longest_gap_days",
+            observed.then_some(longest_gap as f64),
+            "d",
+            "Longest run of days with no record",
+        );
+        let last = any_record.last().copied();
+        output.push_scalar(
+            "days_since_last_record",
+            last.map(|l| (end - l).num_days() as f64),
+            "d",
+            "Days since the last record",
+        );
+
+        // A participant who has left is not expected to keep records, so no gap flag for them.
+        let gap_flag_days = ctx.setting_f64("gap_flag_days", DEFAULT_GAP_FLAG_DAYS as f64);
+        if observed && !withdrawn && current_gap as f64 >= gap_flag_days {
+            let since = match last {
+                Some(l) => format!(" (the last one was on {l})"),
+                None => " since enrolment".to_string(),
+            };
+            output.push_flag(
+                "gap",
+                FlagSeverity::Notice,
+                format!(
+                    "No weigh-in, food log or activity has been recorded for {current_gap} days{since}. \
+                     A short check-in with the program team may help."
+                ),
+            );
+        }
+        Ok(output)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn d(s: &str) -> NaiveDate {
+        s.parse().unwrap()
+    }
+
+    #[test]
+    fn weeks_start_on_monday() {
+        // 2027-03-01 is a Monday.
+        for day in 1..=7 {
+            let date = NaiveDate::from_ymd_opt(2027, 3, day).unwrap();
+            assert_eq!(week_start(date), d("2027-03-01"));
+        }
+        assert_eq!(week_start(d("2027-03-08")), d("2027-03-08"));
+    }
+
+    #[test]
+    fn streak_and_gaps() {
+        let days: BTreeSet<NaiveDate> = [
+            "2027-03-02",
+            "2027-03-03",
+            "2027-03-04",
+            "2027-03-10",
+            "2027-03-11",
+        ]
+        .iter()
+        .map(|s| d(s))
+        .collect();
+        assert_eq!(longest_streak(&days), 3);
+        // Leading gap 03-01 (1 day), 03-05..03-09 (5 days), trailing 03-12..03-20 (9 days).
+        assert_eq!(gaps(&days, d("2027-03-01"), d("2027-03-20")), (9, 9));
+        assert_eq!(gaps(&days, d("2027-03-01"), d("2027-03-12")), (5, 1));
+        assert_eq!(
+            gaps(&BTreeSet::new(), d("2027-03-01"), d("2027-03-10")),
+            (10, 10)
+        );
+    }
+
+    #[test]
+    fn partial_week_scales_the_target() {
+        // 3 covered days of a 3-per-week target need 3 × 3/7 ≈ 1.29, so 2 weigh-ins meet it.
+        assert!(meets(2.0, 3.0, 3));
+        assert!(!meets(1.0, 3.0, 3));
+        assert!(meets(3.0, 3.0, 7));
+    }
+}

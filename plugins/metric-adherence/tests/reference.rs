@@ -1,0 +1,461 @@
+//! Reference and behaviour tests of the `adherence` module.
+//!
+//! Checks against published guidance name their source beside the assertion; the rest check
+//! this module's own documented rules (Monday weeks, partial-week scaling, withdrawal cut-off)
+//! on small synthetic participants whose expected values are counted by hand in the comments.
+
+use chrono::NaiveDate;
+use cohortpress_metric_adherence::{AdherenceModule, moderate_equivalent_minutes, week_start};
+use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::{
+    ActivityEntry, Cell, FlagSeverity, IntakeDay, Intensity, MetricModule, ModuleContext,
+    ModuleOutput, ParticipantData, Period, Profile, ProgramInfo, SessionRecord, Sex, Targets,
+    UnitSystem, WeighIn,
+};
+use std::collections::BTreeMap;
+
+fn d(s: &str) -> NaiveDate {
+    s.parse().unwrap()
+}
+
+fn profile(enrolled: &str) -> Profile {
+    Profile {
+        id: "T-001".into(),
+        name: None,
+        sex: Sex::Female,
+        birth_date: None,
+        age_years: 45.0,
+        height: Length::from_cm(165.0),
+        enrolled: d(enrolled),
+        withdrew: None,
+        groups: BTreeMap::new(),
+        body_fat_percent: None,
+        targets: Targets::default(),
+        flags: vec![],
+    }
+}
+
+fn empty(enrolled: &str) -> ParticipantData {
+    ParticipantData {
+        profile: profile(enrolled),
+        weights: vec![],
+        intake: vec![],
+        activity: vec![],
+        sessions: vec![],
+        labs: vec![],
+    }
+}
+
+fn weigh(date: &str, kg: f64) -> WeighIn {
+    WeighIn {
+        date: d(date),
+        time: None,
+        weight: Mass::from_kg(kg),
+        source: None,
+    }
+}
+
+fn intake(date: &str, kcal: f64) -> IntakeDay {
+    IntakeDay {
+        date: d(date),
+        kcal,
+        carbs_g: None,
+        fat_g: None,
+        protein_g: None,
+        free_sugars_g: None,
+    }
+}
+
+fn act(date: &str, minutes: f64, met: f64) -> ActivityEntry {
+    ActivityEntry {
+        date: d(date),
+        activity: "test".into(),
+        minutes,
+        met,
+        met_source: "given in file".into(),
+        steps: None,
+    }
+}
+
+fn session(date: &str, attended: bool) -> SessionRecord {
+    SessionRecord {
+        date: d(date),
+        session: "s".into(),
+        attended,
+    }
+}
+
+fn ctx(from: &str, to: &str) -> ModuleContext {
+    let spec = AdherenceModule.spec();
+    ModuleContext {
+        program: ProgramInfo {
+            id: "demo".into(),
+            title: "Demo".into(),
+            start: d("2027-03-01"),
+            end: d("2027-08-31"),
+            units: UnitSystem::Metric,
+            targets: Targets::default(),
+        },
+        period: Period {
+            from: d(from),
+            to: d(to),
+        },
+        as_of: d(to),
+        settings: spec.resolve_settings(&serde_json::Value::Null).unwrap(),
+        earlier: BTreeMap::new(),
+    }
+}
+
+fn run(c: &ModuleContext, data: &ParticipantData) -> ModuleOutput {
+    AdherenceModule.compute(c, data).unwrap()
+}
+
+fn cell_text(c: &Cell) -> &str {
+    match c {
+        Cell::Text(s) => s,
+        other => panic!("expected text, found {other:?}"),
+    }
+}
+
+fn cell_num(c: &Cell) -> f64 {
+    match c {
+        Cell::Number(x) => *x,
+        other => panic!("expected a number, found {other:?}"),
+    }
+}
+
+/// Column index by name in the weekly table.
+fn col(out: &ModuleOutput, name: &str) -> usize {
+    let t = out.table("weekly").unwrap();
+    t.columns.iter().position(|c| c.name == name).unwrap()
+}
+
+#[test]
+fn intensity_bands_by_met() {
+    // Physical Activity Guidelines for Americans, 2nd ed. (US DHHS 2018): light < 3.0,
+    // moderate 3.0–5.9, vigorous >= 6.0 MET (REFERENCE §2.1, from memory).
+    assert_eq!(Intensity::of_met(2.9), Intensity::Light);
+    assert_eq!(Intensity::of_met(3.0), Intensity::Moderate);
+    assert_eq!(Intensity::of_met(5.9), Intensity::Moderate);
+    assert_eq!(Intensity::of_met(6.0), Intensity::Vigorous);
+    // One vigorous minute counts as two moderate minutes; light minutes do not count
+    // (US DHHS 2018; WHO 2020 guidelines; from memory).
+    assert_eq!(
+        moderate_equivalent_minutes(&act("2027-03-01", 30.0, 2.5)),
+        0.0
+    );
+    assert_eq!(
+        moderate_equivalent_minutes(&act("2027-03-01", 30.0, 3.5)),
+        30.0
+    );
+    assert_eq!(
+        moderate_equivalent_minutes(&act("2027-03-01", 30.0, 7.0)),
+        60.0
+    );
+}
+
+#[test]
+fn sixty_moderate_plus_forty_five_vigorous_meets_150() {
+    // Physical Activity Guidelines for Americans, 2nd ed. (US DHHS 2018) and WHO 2020
+    // guidelines on physical activity: >= 150 min/week moderate or an equivalent combination,
+    // 1 vigorous minute = 2 moderate minutes; 60 moderate + 45 vigorous = 150 moderate-equivalent
+    // minutes (REFERENCE §2.5, from memory).
+    // Walking 2.8–3.2 mph is 3.5 MET (Compendium 2011 code 17190); jogging, general 7.0 MET
+    // (Compendium 2011 code 12020).
+    let mut data = empty("2027-03-01");
+    data.activity = vec![
+        act("2027-03-02", 60.0, 3.5),
+        act("2027-03-04", 45.0, 7.0),
+        act("2027-03-05", 40.0, 2.0), // light: not counted
+    ];
+    let out = run(&ctx("2027-03-01", "2027-03-07"), &data);
+    let t = out.table("weekly").unwrap();
+    assert_eq!(t.rows.len(), 1);
+    assert_eq!(cell_num(&t.rows[0][col(&out, "activity_minutes")]), 150.0);
+    assert_eq!(
+        cell_text(&t.rows[0][col(&out, "met_activity_target")]),
+        "yes"
+    );
+    assert_eq!(out.scalar("activity_minutes_per_week"), Some(150.0));
+    assert_eq!(
+        out.scalar("weeks_meeting_activity_target_percent"),
+        Some(100.0)
+    );
+
+    // One vigorous minute fewer falls short (148 < 150).
+    data.activity[1].minutes = 44.0;
+    let out = run(&ctx("2027-03-01", "2027-03-07"), &data);
+    let t = out.table("weekly").unwrap();
+    assert_eq!(cell_num(&t.rows[0][col(&out, "activity_minutes")]), 148.0);
+    assert_eq!(
+        cell_text(&t.rows[0][col(&out, "met_activity_target")]),
+        "no"
+    );
+}
+
+/// Enrolled Wednesday 2027-03-03, period 2027-03-01 .. Wednesday 2027-03-17: three Monday weeks,
+/// 5 + 7 + 3 covered days.
+fn three_week_participant() -> ParticipantData {
+    let mut data = empty("2027-03-03");
+    data.weights = vec![
+        weigh("2027-03-03", 90.0),
+        weigh("2027-03-03", 90.2), // same day: one weigh-in day
+        weigh("2027-03-05", 89.8),
+        weigh("2027-03-08", 89.9),
+        weigh("2027-03-09", 89.6),
+        weigh("2027-03-10", 89.5),
+        weigh("2027-03-11", 89.4),
+        weigh("2027-03-16", 89.0),
+        weigh("2027-03-18", 88.9), // after period.to: ignored
+    ];
+    data.intake = [
+        "2027-03-03",
+        "2027-03-04",
+        "2027-03-05",
+        "2027-03-06",
+        "2027-03-07",
+    ]
+    .iter()
+    .map(|s| intake(s, 1700.0))
+    .chain([intake("2027-03-15", 1650.0)])
+    .collect();
+    data.activity = vec![
+        act("2027-03-04", 30.0, 3.5),
+        act("2027-03-06", 40.0, 3.0),
+        act("2027-03-09", 50.0, 3.5),
+        act("2027-03-12", 20.0, 8.0),
+        act("2027-03-15", 35.0, 4.3),
+        act("2027-03-17", 30.0, 6.0),
+    ];
+    data.sessions = vec![
+        session("2027-03-04", true),
+        session("2027-03-11", false),
+        session("2027-03-18", true), // after period.to: ignored
+    ];
+    data
+}
+
+#[test]
+fn weekly_table_counts_and_partial_weeks() {
+    let data = three_week_participant();
+    let out = run(&ctx("2027-03-01", "2027-03-17"), &data);
+    let t = out.table("weekly").unwrap();
+    let rows: Vec<Vec<String>> = t
+        .rows
+        .iter()
+        .map(|r| {
+            r.iter()
+                .map(|c| match c {
+                    Cell::Text(s) => s.clone(),
+                    Cell::Number(x) => format!("{x}"),
+                    Cell::Empty => String::new(),
+                })
+                .collect()
+        })
+        .collect();
+    let names: Vec<&str> = t.columns.iter().map(|c| c.name.as_str()).collect();
+    assert_eq!(
+        names,
+        [
+            "week_start",
+            "days_covered",
+            "weigh_ins",
+            "food_log_days",
+            "activity_minutes",
+            "sessions_offered",
+            "sessions_attended",
+            "met_weigh_in_target",
+            "met_food_log_target",
+            "met_activity_target"
+        ]
+    );
+    // Week 1 (Mon 03-01, covered Wed–Sun = 5 d): weigh-in days 03-03, 03-05 = 2 vs 3×5/7 = 2.14
+    // → no; food 5 vs 5×5/7 = 3.57 → yes; activity 30 + 40 = 70 vs 150×5/7 = 107.1 → no.
+    // Week 2 (03-08, 7 d): weigh-ins 4 → yes; food 0 → no; activity 50 + 2×20 = 90 → no.
+    // Week 3 (03-15, covered Mon–Wed = 3 d): weigh-ins 1 vs 1.29 → no; food 1 vs 2.14 → no;
+    // activity 35 + 2×30 = 95 vs 64.3 → yes.
+    assert_eq!(
+        rows,
+        vec![
+            vec![
+                "2027-03-01",
+                "5",
+                "2",
+                "5",
+                "70",
+                "1",
+                "1",
+                "no",
+                "yes",
+                "no"
+            ],
+            vec![
+                "2027-03-08",
+                "7",
+                "4",
+                "0",
+                "90",
+                "1",
+                "0",
+                "yes",
+                "no",
+                "no"
+            ],
+            vec![
+                "2027-03-15",
+                "3",
+                "1",
+                "1",
+                "95",
+                "0",
+                "0",
+                "no",
+                "no",
+                "yes"
+            ],
+        ]
+    );
+    let s = out.series("weekly_activity_minutes").unwrap();
+    assert_eq!(s.step, "weekly");
+    let pts: Vec<(NaiveDate, f64)> = s.points.iter().map(|p| (p.date, p.value)).collect();
+    assert_eq!(
+        pts,
+        vec![
+            (d("2027-03-01"), 70.0),
+            (d("2027-03-08"), 90.0),
+            (d("2027-03-15"), 95.0)
+        ]
+    );
+    let w: Vec<f64> = out
+        .series("weekly_weigh_ins")
+        .unwrap()
+        .points
+        .iter()
+        .map(|p| p.value)
+        .collect();
+    assert_eq!(w, vec![2.0, 4.0, 1.0]);
+    let f: Vec<f64> = out
+        .series("weekly_food_log_days")
+        .unwrap()
+        .points
+        .iter()
+        .map(|p| p.value)
+        .collect();
+    assert_eq!(f, vec![5.0, 0.0, 1.0]);
+}
+
+#[test]
+fn period_scalars_streaks_and_gaps() {
+    let data = three_week_participant();
+    let out = run(&ctx("2027-03-01", "2027-03-17"), &data);
+    // Covered days of the period: 03-03 .. 03-17 = 15 d = 15/7 weeks.
+    let weeks = 15.0 / 7.0;
+    let close = |a: Option<f64>, b: f64| (a.unwrap() - b).abs() < 1e-12;
+    assert!(close(out.scalar("weigh_ins_per_week"), 7.0 / weeks));
+    assert!(close(out.scalar("food_log_days_per_week"), 6.0 / weeks));
+    assert!(close(
+        out.scalar("activity_minutes_per_week"),
+        255.0 / weeks
+    ));
+    assert_eq!(out.scalar("sessions_offered"), Some(2.0));
+    assert_eq!(out.scalar("sessions_attended"), Some(1.0));
+    assert_eq!(out.scalar("attendance_percent"), Some(50.0));
+    assert!(close(
+        out.scalar("weeks_meeting_activity_target_percent"),
+        100.0 / 3.0
+    ));
+    // Weigh-in days 03-08 .. 03-11 are the longest run (4 days).
+    assert_eq!(out.scalar("longest_weigh_in_streak_days"), Some(4.0));
+    // Days with any record: every day 03-03..03-12, then 03-15..03-17, so the longest gap is
+    // 03-13..03-14 = 2 days.
+    assert_eq!(out.scalar("longest_gap_days"), Some(2.0));
+    assert_eq!(out.scalar("days_since_last_record"), Some(0.0));
+    assert!(out.flags.is_empty(), "{:?}", out.flags);
+
+    // A later monthly period counts only its own days: 03-08 .. 03-17 = 10 covered days.
+    let out = run(&ctx("2027-03-08", "2027-03-17"), &data);
+    assert!(close(out.scalar("weigh_ins_per_week"), 5.0 * 0.7));
+    assert_eq!(out.scalar("sessions_offered"), Some(1.0));
+    assert_eq!(out.scalar("attendance_percent"), Some(0.0));
+    // Weeks overlapping 03-08..03-17: the weeks of 03-08 (no) and 03-15 (yes).
+    assert_eq!(
+        out.scalar("weeks_meeting_activity_target_percent"),
+        Some(50.0)
+    );
+}
+
+#[test]
+fn attendance_is_missing_when_no_session_was_offered() {
+    let mut data = empty("2027-03-01");
+    data.weights = vec![weigh("2027-03-01", 80.0)];
+    let out = run(&ctx("2027-03-01", "2027-03-14"), &data);
+    assert_eq!(out.scalar("sessions_offered"), Some(0.0));
+    assert_eq!(out.scalar("attendance_percent"), None);
+}
+
+#[test]
+fn nothing_counts_after_withdrawal() {
+    let mut data = three_week_participant();
+    data.profile.withdrew = Some(d("2027-03-09"));
+    let out = run(&ctx("2027-03-01", "2027-03-17"), &data);
+    let t = out.table("weekly").unwrap();
+    // The table stops at the week of the withdrawal; that week covers Mon–Tue only.
+    assert_eq!(t.rows.len(), 2);
+    assert_eq!(cell_num(&t.rows[1][col(&out, "days_covered")]), 2.0);
+    assert_eq!(cell_num(&t.rows[1][col(&out, "weigh_ins")]), 2.0);
+    assert_eq!(cell_num(&t.rows[1][col(&out, "activity_minutes")]), 50.0);
+    assert_eq!(cell_num(&t.rows[1][col(&out, "sessions_offered")]), 0.0);
+    // 03-03..03-09 = 7 covered days: 4 weigh-in days in one week.
+    assert_eq!(out.scalar("weigh_ins_per_week"), Some(4.0));
+    assert_eq!(out.scalar("days_since_last_record"), Some(0.0));
+    // Long silence after withdrawal does not raise the gap flag.
+    let out = run(&ctx("2027-03-01", "2027-04-30"), &data);
+    assert!(out.flags.iter().all(|f| f.code != "gap"));
+}
+
+#[test]
+fn gap_flag_at_fourteen_days() {
+    // Two weeks without any record: common practice threshold for a check-in.
+    let mut data = empty("2027-03-01");
+    data.weights = vec![weigh("2027-03-01", 80.0)];
+    data.intake = vec![intake("2027-03-02", 1800.0)];
+    // Last record 03-02; on 03-15 the current gap is 13 days: no flag.
+    let out = run(&ctx("2027-03-01", "2027-03-15"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(13.0));
+    assert!(out.flags.is_empty());
+    // On 03-16 it is 14 days: a notice.
+    let out = run(&ctx("2027-03-01", "2027-03-16"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(14.0));
+    assert_eq!(out.scalar("longest_gap_days"), Some(14.0));
+    assert_eq!(out.flags.len(), 1);
+    assert_eq!(out.flags[0].code, "gap");
+    assert_eq!(out.flags[0].severity, FlagSeverity::Notice);
+    assert!(
+        out.flags[0].message.contains("14 days"),
+        "{}",
+        out.flags[0].message
+    );
+}
+
+#[test]
+fn light_activity_counts_as_a_record_but_not_as_minutes() {
+    let mut data = empty("2027-03-01");
+    data.activity = vec![act("2027-03-10", 60.0, 2.0)];
+    let out = run(&ctx("2027-03-01", "2027-03-14"), &data);
+    assert_eq!(out.scalar("activity_minutes_per_week"), Some(0.0));
+    assert_eq!(out.scalar("days_since_last_record"), Some(4.0));
+    // Leading gap 03-01..03-09 = 9 days.
+    assert_eq!(out.scalar("longest_gap_days"), Some(9.0));
+}
+
+#[test]
+fn no_data_before_enrolment_and_no_weeks_when_enrolled_after_period() {
+    let mut data = three_week_participant();
+    data.profile.enrolled = d("2027-04-01");
+    let out = run(&ctx("2027-03-01", "2027-03-17"), &data);
+    assert!(out.table("weekly").unwrap().rows.is_empty());
+    assert_eq!(out.scalar("weigh_ins_per_week"), None);
+    assert_eq!(out.scalar("longest_gap_days"), None);
+    assert!(out.flags.is_empty());
+    assert_eq!(week_start(d("2027-04-01")), d("2027-03-29"));
+}
