@@ -1,11 +1,502 @@
-//! Reading `program.yaml` and its semantic checks. (being written)
+//! Reading `program.yaml` and its semantic checks.
+//!
+//! Parsing (serde, unknown keys refused) stops at the first syntax or type problem, because the
+//! YAML crate does; every *semantic* problem after that is collected, so a user fixes them all in
+//! one pass. Module ids and their `with:` settings are checked by [`crate::modules`], not here.
 
-use super::Program;
+use super::{FORMAT_VERSION, Program, ProgramDef};
 use crate::diag::Diagnostic;
+use chrono::NaiveDate;
+use cohortpress_metric_api::{ProgramInfo, Targets};
+use std::collections::{BTreeMap, BTreeSet};
+use std::io::Read;
 use std::path::Path;
+
+/// The program file's name, relative to the program folder (as diagnostics show it).
+pub const PROGRAM_FILE: &str = "program.yaml";
 
 /// Loads and checks `ROOT/program.yaml`. Every problem found is returned, not only the first.
 pub fn load_program(root: &Path) -> Result<Program, Vec<Diagnostic>> {
-    let _ = root;
-    Err(vec![Diagnostic::error("program.yaml", "not implemented yet")])
+    if !root.is_dir() {
+        return Err(vec![
+            Diagnostic::error(
+                root.display().to_string(),
+                "the program folder does not exist",
+            )
+            .expected("a folder holding program.yaml and participants/")
+            .hint("give the path of the program folder"),
+        ]);
+    }
+    let path = root.join(PROGRAM_FILE);
+    let bytes = read_bytes(&path).map_err(|e| {
+        let mut d = Diagnostic::error(PROGRAM_FILE, format!("cannot read the program file ({e})"));
+        if e.kind() == std::io::ErrorKind::NotFound {
+            d = d.hint("create program.yaml in the program folder (see the sample program)");
+        }
+        vec![d]
+    })?;
+    let text = decode_utf8(&bytes, PROGRAM_FILE).map_err(|d| vec![d])?;
+    parse_program(root, text)
+}
+
+/// Parses and checks the text of a program file; `root` is used to resolve relative folders.
+pub fn parse_program(root: &Path, text: &str) -> Result<Program, Vec<Diagnostic>> {
+    let def: ProgramDef = crate::yaml::from_str(text, PROGRAM_FILE).map_err(|d| vec![d])?;
+    let diags = validate_program(root, &def, text);
+    if !diags.is_empty() {
+        return Err(diags);
+    }
+    let info = ProgramInfo {
+        id: def.program.id.clone(),
+        title: def.program.title.clone(),
+        start: def.program.start,
+        end: def.program.end,
+        units: def.units,
+        targets: def.targets.apply(&Targets::default()),
+    };
+    let module_lines = module_lines(text, def.modules.len());
+    Ok(Program {
+        root: root.to_path_buf(),
+        def,
+        info,
+        module_lines,
+    })
+}
+
+/// Semantic checks on a parsed program; returns every problem found.
+pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagnostic> {
+    let mut out = Vec::new();
+    let err = |key: &str, msg: String| {
+        let mut d = Diagnostic::error(PROGRAM_FILE, msg).field(key);
+        if let Some(l) = key_line(text, key) {
+            d = d.at(l, None);
+        }
+        d
+    };
+    if def.format_version != FORMAT_VERSION {
+        out.push(
+            err("format_version", "unsupported format version".into())
+                .expected(FORMAT_VERSION.to_string())
+                .found(def.format_version.to_string())
+                .hint("this build of cohortpress reads format version 1"),
+        );
+    }
+    let id = &def.program.id;
+    if !is_plain_id(id) {
+        out.push(
+            err("program.id", "the program id is not a plain name".into())
+                .expected("letters, digits, `-` and `_` only")
+                .found(format!("`{id}`"))
+                .hint("the id names output files; use e.g. `wellness-2026`"),
+        );
+    }
+    if def.program.title.trim().is_empty() {
+        out.push(err("program.title", "the program title is empty".into()));
+    }
+    if def.program.start >= def.program.end {
+        out.push(
+            err("program.end", "the program ends before it starts".into())
+                .expected(format!("an end date after the start {}", def.program.start))
+                .found(def.program.end.to_string()),
+        );
+    }
+    let t = &def.targets;
+    for (key, v, lo, hi) in [
+        (
+            "targets.weight_change_percent",
+            t.weight_change_percent,
+            -50.0,
+            50.0,
+        ),
+        (
+            "targets.activity_minutes_per_week",
+            t.activity_minutes_per_week,
+            0.0,
+            3000.0,
+        ),
+        (
+            "targets.weigh_ins_per_week",
+            t.weigh_ins_per_week,
+            0.0,
+            21.0,
+        ),
+        (
+            "targets.food_log_days_per_week",
+            t.food_log_days_per_week,
+            0.0,
+            7.0,
+        ),
+    ] {
+        // Bounds are sanity limits (common practice), not clinical advice.
+        if let Some(v) = v {
+            if !v.is_finite() || v < lo || v > hi {
+                out.push(
+                    err(key, format!("target out of range: {v}"))
+                        .expected(format!("a number from {lo} to {hi}"))
+                        .found(v.to_string()),
+                );
+            }
+        }
+    }
+    let mut seen = BTreeSet::new();
+    let lines = module_lines(text, def.modules.len());
+    for (i, m) in def.modules.iter().enumerate() {
+        if !seen.insert(m.id.as_str()) {
+            let mut d =
+                Diagnostic::error(PROGRAM_FILE, format!("module `{}` is listed twice", m.id))
+                    .field(format!("modules[{i}].id"))
+                    .hint("list each module once; put all its settings under one `with:`");
+            if let Some(l) = lines.get(&i) {
+                d = d.at(*l, None);
+            }
+            out.push(d);
+        }
+    }
+    if def.modules.is_empty() {
+        out.push(
+            err("modules", "no metric modules are listed".into())
+                .hint("list at least one module, e.g. `modules: [ {id: trend} ]`"),
+        );
+    }
+    if def.privacy.min_cell_size < 1 {
+        out.push(
+            err(
+                "privacy.min_cell_size",
+                "the minimum cell size must be at least 1".into(),
+            )
+            .expected("a whole number ≥ 1 (11 is the usual choice)")
+            .found(def.privacy.min_cell_size.to_string()),
+        );
+    }
+    if def.report.formats.is_empty() {
+        out.push(
+            err("report.formats", "no output formats are listed".into())
+                .expected("one or more of `html`, `pdf`"),
+        );
+    }
+    if let Some(tpl) = &def.report.templates {
+        let dir = root.join(tpl);
+        if !dir.is_dir() {
+            out.push(
+                err("report.templates", "the templates folder does not exist".into())
+                    .found(tpl.display().to_string())
+                    .hint("give a folder relative to the program folder, or remove the key to use the built-in templates"),
+            );
+        }
+    }
+    for (i, g) in def.report.group_by.iter().enumerate() {
+        if g.trim().is_empty() {
+            out.push(
+                err("report.group_by", "a group_by key is empty".into())
+                    .field(format!("report.group_by[{i}]"))
+                    .expected("a group attribute name such as `site`"),
+            );
+        }
+    }
+    let delim = def.input.delimiter;
+    if !delim.is_ascii() || matches!(delim, '"' | '\n' | '\r') || delim.is_ascii_alphanumeric() {
+        out.push(
+            err("input.delimiter", "unusable field delimiter".into())
+                .expected("one ASCII punctuation or whitespace character such as `,`, `;` or a tab, not a quote or newline")
+                .found(format!("{delim:?}")),
+        );
+    }
+    if let Err(why) = check_date_format(&def.input.date_format) {
+        out.push(
+            err("input.date_format", format!("unusable date format: {why}"))
+                .expected(
+                    "a chrono date format with year, month and day, e.g. `%Y-%m-%d` or `%d/%m/%Y`",
+                )
+                .found(format!("`{}`", def.input.date_format)),
+        );
+    }
+    out
+}
+
+/// Checks that `fmt` formats a date and parses it back to the same day.
+pub fn check_date_format(fmt: &str) -> Result<(), String> {
+    use std::fmt::Write;
+    // A day with distinct day, month and year digits, so a format missing one of them cannot
+    // round-trip by accident.
+    let probe = NaiveDate::from_ymd_opt(2031, 12, 25).expect("valid date");
+    let mut s = String::new();
+    if write!(s, "{}", probe.format(fmt)).is_err() {
+        return Err("it contains an unknown `%` specifier".into());
+    }
+    match NaiveDate::parse_from_str(&s, fmt) {
+        Ok(d) if d == probe => Ok(()),
+        Ok(_) => Err("a date does not read back as itself".into()),
+        Err(_) => Err("it does not give year, month and day".into()),
+    }
+}
+
+/// Letters, digits, `-` and `_`; not empty; at most 64 characters (it names files).
+pub fn is_plain_id(s: &str) -> bool {
+    !s.is_empty()
+        && s.len() <= 64
+        && s.chars()
+            .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
+}
+
+/// Reads a whole file without ever opening it for writing.
+pub fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
+    let mut f = std::fs::OpenOptions::new().read(true).open(path)?;
+    let mut buf = Vec::new();
+    f.read_to_end(&mut buf)?;
+    Ok(buf)
+}
+
+/// Decodes UTF-8 (a leading byte-order mark is skipped); on failure the diagnostic names the
+/// line and the byte column of the first bad byte.
+pub fn decode_utf8<'a>(bytes: &'a [u8], file: &str) -> Result<&'a str, Diagnostic> {
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    std::str::from_utf8(bytes).map_err(|e| {
+        let at = e.valid_up_to();
+        let before = &bytes[..at];
+        let line = before.iter().filter(|&&b| b == b'\n').count() as u64 + 1;
+        let line_start = before
+            .iter()
+            .rposition(|&b| b == b'\n')
+            .map_or(0, |p| p + 1);
+        let col = (at - line_start) as u64 + 1;
+        Diagnostic::error(file, "the file is not valid UTF-8 text")
+            .at(line, Some(col))
+            .expected("UTF-8 text")
+            .found(format!("byte 0x{:02X} at byte column {col}", bytes[at]))
+            .hint("save the file as UTF-8 (spreadsheet programs offer \"CSV UTF-8\")")
+    })
+}
+
+/// 1-based line of the key path `a.b` in block-style YAML, found by scanning indentation.
+/// Good enough for pointing at a key after serde has parsed the file; `None` when not found
+/// (e.g. flow style).
+pub fn key_line(text: &str, path: &str) -> Option<u64> {
+    let mut parts = path.split('.').peekable();
+    let mut want = parts.next()?;
+    let mut min_indent = 0usize;
+    let mut found_line = None;
+    for (i, line) in text.lines().enumerate() {
+        let trimmed = line.trim_start();
+        if trimmed.is_empty() || trimmed.starts_with('#') {
+            continue;
+        }
+        let indent = line.len() - trimmed.len();
+        if found_line.is_some() && indent < min_indent {
+            // Left the parent mapping without finding the child.
+            return found_line;
+        }
+        if indent < min_indent {
+            continue;
+        }
+        let key = trimmed.split(':').next().unwrap_or("").trim();
+        if trimmed.contains(':') && key == want {
+            found_line = Some(i as u64 + 1);
+            match parts.next() {
+                Some(next) => {
+                    // A flow mapping on the same line: the child is on this line too.
+                    if trimmed[key.len()..]
+                        .trim_start_matches(':')
+                        .trim_start()
+                        .starts_with('{')
+                    {
+                        return found_line;
+                    }
+                    want = next;
+                    min_indent = indent + 1;
+                }
+                None => return found_line,
+            }
+        }
+    }
+    found_line
+}
+
+/// 1-based line of each `modules:` entry, by index, when the entries can be found by scanning
+/// (block list: one `- ` line each; flow list on one line: that line for all). Empty otherwise.
+pub fn module_lines(text: &str, count: usize) -> BTreeMap<usize, u64> {
+    let mut out = BTreeMap::new();
+    let lines: Vec<&str> = text.lines().collect();
+    let Some(start) = lines.iter().position(|l| l.starts_with("modules:")) else {
+        return out;
+    };
+    let head = lines[start]["modules:".len()..].trim();
+    if head.starts_with('[') {
+        if head.ends_with(']') {
+            for i in 0..count {
+                out.insert(i, start as u64 + 1);
+            }
+        }
+        return out;
+    }
+    let mut dash_indent = None;
+    let mut found = Vec::new();
+    for (j, l) in lines.iter().enumerate().skip(start + 1) {
+        let t = l.trim_start();
+        if t.is_empty() || t.starts_with('#') {
+            continue;
+        }
+        let indent = l.len() - t.len();
+        if indent == 0 && !t.starts_with('-') {
+            break;
+        }
+        if t.starts_with('-') {
+            let di = *dash_indent.get_or_insert(indent);
+            if indent == di {
+                found.push(j as u64 + 1);
+            }
+        }
+    }
+    if found.len() == count {
+        out.extend(found.into_iter().enumerate());
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const GOOD: &str = "format_version: 1
+program: { id: demo-2026, title: \"Demo\", start: 2026-04-01, end: 2026-09-30 }
+units: metric
+modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
+";
+
+    fn root() -> &'static Path {
+        Path::new(".")
+    }
+
+    #[test]
+    fn sample_program_loads() {
+        let p = parse_program(root(), GOOD).unwrap();
+        assert_eq!(p.info.id, "demo-2026");
+        assert_eq!(p.info.targets, Targets::default());
+        assert_eq!(p.def.modules.len(), 4);
+        assert_eq!(p.module_lines.get(&3), Some(&4));
+        assert_eq!(p.def.input.delimiter, ',');
+    }
+
+    #[test]
+    fn targets_apply_over_defaults() {
+        let text = format!("{GOOD}targets:\n  weight_change_percent: -7\n");
+        let p = parse_program(root(), &text).unwrap();
+        assert_eq!(p.info.targets.weight_change_percent, -7.0);
+        assert_eq!(p.info.targets.activity_minutes_per_week, 150.0);
+    }
+
+    #[test]
+    fn block_module_lines_are_found() {
+        let text = "format_version: 1
+program:
+  id: demo
+  title: Demo
+  start: 2026-04-01
+  end: 2026-09-30
+modules:
+  - id: trend
+  - id: energy
+    with:
+      equation: mifflin
+  # a comment
+  - id: outcomes
+report:
+  formats: [html]
+";
+        let p = parse_program(root(), text).unwrap();
+        assert_eq!(
+            p.module_lines.into_iter().collect::<Vec<_>>(),
+            vec![(0, 8), (1, 9), (2, 13)]
+        );
+        assert_eq!(key_line(text, "program.end"), Some(6));
+        assert_eq!(key_line(text, "report.formats"), Some(15));
+    }
+
+    #[test]
+    fn unknown_key_names_key_and_line() {
+        let text = format!("{GOOD}colour: blue\n");
+        let e = parse_program(root(), &text).unwrap_err();
+        assert_eq!(e.len(), 1);
+        assert_eq!(e[0].line, Some(5));
+        assert_eq!(e[0].found.as_deref(), Some("`colour`"));
+    }
+
+    #[test]
+    fn every_semantic_problem_is_reported_at_once() {
+        let text = "format_version: 2
+program:
+  id: demo 2026
+  title: Demo
+  start: 2026-09-30
+  end: 2026-04-01
+modules:
+  - id: trend
+  - id: trend
+report:
+  formats: []
+  templates: no-such-folder
+  group_by: ['']
+privacy:
+  min_cell_size: 0
+input:
+  delimiter: '\"'
+  date_format: '%Y-%m'
+";
+        let e = parse_program(root(), text).unwrap_err();
+        let fields: Vec<&str> = e.iter().filter_map(|d| d.field.as_deref()).collect();
+        for want in [
+            "format_version",
+            "program.id",
+            "program.end",
+            "modules[1].id",
+            "privacy.min_cell_size",
+            "report.formats",
+            "report.templates",
+            "report.group_by[0]",
+            "input.delimiter",
+            "input.date_format",
+        ] {
+            assert!(fields.contains(&want), "missing {want}: {fields:?}");
+        }
+        assert_eq!(e.len(), 10, "{e:#?}");
+        let by = |f: &str| e.iter().find(|d| d.field.as_deref() == Some(f)).unwrap();
+        assert_eq!(by("program.id").line, Some(3));
+        assert_eq!(by("program.end").line, Some(6));
+        assert_eq!(by("modules[1].id").line, Some(9));
+        assert_eq!(by("input.delimiter").line, Some(17));
+    }
+
+    #[test]
+    fn date_formats_are_checked_by_round_trip() {
+        assert!(check_date_format("%Y-%m-%d").is_ok());
+        assert!(check_date_format("%d/%m/%Y").is_ok());
+        assert!(check_date_format("%m/%d/%Y").is_ok());
+        assert!(check_date_format("%Y-%m").is_err());
+        assert!(check_date_format("%Q-%m-%d").is_err());
+        assert!(check_date_format("").is_err());
+    }
+
+    #[test]
+    fn missing_and_non_utf8_program_files_are_errors() {
+        let tmp = tempfile::tempdir().unwrap();
+        let e = load_program(tmp.path()).unwrap_err();
+        assert!(e[0].message.contains("cannot read"), "{}", e[0]);
+        std::fs::write(
+            tmp.path().join("program.yaml"),
+            b"format_version: 1\nprogram: \xff\n",
+        )
+        .unwrap();
+        let e = load_program(tmp.path()).unwrap_err();
+        assert_eq!((e[0].line, e[0].column), (Some(2), Some(10)), "{}", e[0]);
+        let e = load_program(&tmp.path().join("nowhere")).unwrap_err();
+        assert!(e[0].message.contains("does not exist"));
+    }
+
+    #[test]
+    fn plain_ids() {
+        assert!(is_plain_id("LW-0147"));
+        assert!(is_plain_id("a_b"));
+        for bad in ["", "a b", "../x", "a/b", "é", "a\tb", ".."] {
+            assert!(!is_plain_id(bad), "{bad:?}");
+        }
+    }
 }
