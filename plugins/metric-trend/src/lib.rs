@@ -1,1 +1,700 @@
-//! placeholder
+//! The built-in `trend` metric module of cohortpress: a weight trend with uncertainty from
+//! noisy, irregular weigh-ins, and the plateau, loss and regain periods read from it.
+//!
+//! Methods (REFERENCE §7):
+//! - [`llt`]: local linear trend (integrated random walk) state-space model with a Kalman
+//!   filter and Rauch–Tung–Striebel smoother for irregular spacing; noise and trend variances
+//!   by maximum likelihood; a standardized-innovation outlier screen.
+//! - [`theil_sen`]: Theil–Sen slope with Sen's interval and Mann–Kendall S, a model-free
+//!   cross-check of the slope.
+//! - [`plateau`]: window verdicts (equivalence-style plateau test) and their merging.
+//!
+//! [`TrendModule`] wires them into the [`MetricModule`] interface. Its output names are a
+//! contract with other modules and the report templates; see [`TrendModule::spec`].
+//!
+//! Several weigh-ins on one day are averaged into one daily observation with the ordinary
+//! noise variance σ²_ε (not σ²_ε/k): within-day readings share the day's fluid and meal
+//! state, so they are not independent measurements of the trend, and a person who weighs
+//! three times on Monday should not give Monday three times the weight of Tuesday.
+
+#![forbid(unsafe_code)]
+
+pub mod llt;
+pub mod plateau;
+pub mod theil_sen;
+
+use chrono::{Days, NaiveDate};
+use cohortpress_metric_api::{
+    Cell, Column, FlagSeverity, MetricModule, ModuleContext, ModuleError, ModuleOutput, ModuleSpec,
+    OutputSpec, ParticipantData, Point, Series, SettingKind, SettingSpec, Table,
+};
+use llt::{
+    DIFFUSE_KAPPA, OutlierScreen, StatePrior, StepStatus, Z_95, estimate_params, kalman_filter,
+    rts_smoother,
+};
+use plateau::{PlateauSettings, WindowKind, classify_window, find_periods};
+
+/// The built-in `trend` module.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct TrendModule;
+
+/// Default limit on the standardized innovation `|v|/√F` beyond which a weigh-in day is
+/// skipped (program configuration; 4 is far in the tail of a normal innovation, about 1 in
+/// 16 000, so clean data almost never lose a day).
+pub const DEFAULT_OUTLIER_Z: f64 = 4.0;
+
+fn setting(
+    name: &str,
+    kind: SettingKind,
+    default: f64,
+    unit: &str,
+    min: f64,
+    max: f64,
+    description: &str,
+) -> SettingSpec {
+    SettingSpec {
+        name: name.into(),
+        kind,
+        default: if kind == SettingKind::Integer {
+            serde_json::json!(default as i64)
+        } else {
+            serde_json::json!(default)
+        },
+        unit: unit.into(),
+        choices: vec![],
+        min: Some(min),
+        max: Some(max),
+        description: description.into(),
+    }
+}
+
+fn out(name: &str, kind: &str, unit: &str, description: &str) -> OutputSpec {
+    OutputSpec {
+        name: name.into(),
+        kind: kind.into(),
+        unit: unit.into(),
+        description: description.into(),
+    }
+}
+
+/// Resolved settings of one run.
+#[derive(Debug, Clone, Copy)]
+struct Settings {
+    plateau: PlateauSettings,
+    outlier_z: f64,
+}
+
+impl Settings {
+    fn from_ctx(ctx: &ModuleContext) -> Self {
+        // The runner has checked ranges against the spec; clamping again keeps a direct caller
+        // (tests, external tools) from producing a degenerate window.
+        let window = ctx
+            .setting_f64("plateau_window_days", 28.0)
+            .round()
+            .clamp(14.0, 84.0) as usize;
+        let min_w = ctx
+            .setting_f64("min_weigh_ins", 8.0)
+            .round()
+            .clamp(3.0, 84.0) as usize;
+        Settings {
+            plateau: PlateauSettings {
+                window_days: window,
+                min_weigh_ins: min_w,
+                band_percent_per_week: ctx
+                    .setting_f64("plateau_band_percent_per_week", 0.25)
+                    .clamp(0.05, 2.0),
+                min_prior_loss_percent: ctx
+                    .setting_f64("min_prior_loss_percent", 3.0)
+                    .clamp(0.0, 20.0),
+            },
+            outlier_z: ctx
+                .setting_f64("outlier_z", DEFAULT_OUTLIER_Z)
+                .clamp(2.5, 10.0),
+        }
+    }
+}
+
+fn status_label(code: &str) -> &'static str {
+    match code {
+        "losing" => "Losing weight",
+        "plateau" => "Weight has levelled off after a loss",
+        "regaining" => "Weight is going up",
+        "stable" => "Weight is steady",
+        _ => "Not enough weigh-ins to tell",
+    }
+}
+
+fn iso(d: NaiveDate) -> String {
+    d.format("%Y-%m-%d").to_string()
+}
+
+fn add_days(d: NaiveDate, n: usize) -> NaiveDate {
+    d.checked_add_days(Days::new(n as u64)).unwrap_or(d)
+}
+
+impl MetricModule for TrendModule {
+    fn spec(&self) -> ModuleSpec {
+        ModuleSpec {
+            id: "trend".into(),
+            version: env!("CARGO_PKG_VERSION").into(),
+            description: "Weight trend from noisy, irregular weigh-ins: a local linear trend \
+                (integrated random walk) state-space model with a Kalman filter and RTS smoother \
+                (Harvey 1989; Durbin & Koopman 2012), variances by maximum likelihood, outlier \
+                screening on standardized innovations; Theil–Sen slope with Sen's interval (Sen \
+                1968) as a cross-check; plateau, loss and regain periods by an equivalence-style \
+                test of the mean slope over sliding windows (thresholds are program settings)."
+                .into(),
+            settings: vec![
+                setting(
+                    "plateau_window_days",
+                    SettingKind::Integer,
+                    28.0,
+                    "d",
+                    14.0,
+                    84.0,
+                    "Length of the sliding window the slope is judged over",
+                ),
+                setting(
+                    "min_weigh_ins",
+                    SettingKind::Integer,
+                    8.0,
+                    "",
+                    3.0,
+                    84.0,
+                    "Days with a weigh-in a window needs (spread over at least 3 of its 4 weeks)",
+                ),
+                setting(
+                    "plateau_band_percent_per_week",
+                    SettingKind::Number,
+                    0.25,
+                    "%/wk",
+                    0.05,
+                    2.0,
+                    "Half-width of the band a plateau's slope interval must lie in, % of body weight per week",
+                ),
+                setting(
+                    "min_prior_loss_percent",
+                    SettingKind::Number,
+                    3.0,
+                    "%",
+                    0.0,
+                    20.0,
+                    "Loss from baseline before a window needed to call a plateau or a regain",
+                ),
+                setting(
+                    "outlier_z",
+                    SettingKind::Number,
+                    DEFAULT_OUTLIER_Z,
+                    "",
+                    2.5,
+                    10.0,
+                    "Standardized innovation beyond which a weigh-in day is ignored",
+                ),
+            ],
+            outputs: vec![
+                out(
+                    "weight_trend",
+                    "series",
+                    "kg",
+                    "Smoothed weight per day with 95 % band",
+                ),
+                out(
+                    "weight_slope",
+                    "series",
+                    "kg/d",
+                    "Smoothed rate of change per day with 95 % band",
+                ),
+                out("weigh_ins", "series", "kg", "Weigh-ins used for the trend"),
+                out(
+                    "periods",
+                    "table",
+                    "",
+                    "Plateau, regain, loss and insufficient-data periods",
+                ),
+                out(
+                    "current_weight_kg",
+                    "scalar",
+                    "kg",
+                    "Trend weight on the last day with a weigh-in",
+                ),
+                out(
+                    "slope_kg_per_week",
+                    "scalar",
+                    "kg/wk",
+                    "Mean trend slope over the last window",
+                ),
+                out(
+                    "theil_sen_slope_kg_per_week",
+                    "scalar",
+                    "kg/wk",
+                    "Theil–Sen slope over the last window",
+                ),
+                out(
+                    "noise_sd_kg",
+                    "scalar",
+                    "kg",
+                    "Estimated day-to-day scatter of weigh-ins around the trend",
+                ),
+                out("weigh_ins_used", "scalar", "", "Weigh-ins used"),
+                out(
+                    "outliers_ignored",
+                    "scalar",
+                    "",
+                    "Weigh-ins ignored as outliers",
+                ),
+                out(
+                    "days_since_last_weigh_in",
+                    "scalar",
+                    "d",
+                    "Days from the last weigh-in to the period end",
+                ),
+                out(
+                    "status",
+                    "text",
+                    "",
+                    "losing, plateau, regaining, stable or insufficient_data",
+                ),
+                out(
+                    "insufficient_data",
+                    "flag",
+                    "",
+                    "Fewer than 3 days with a weigh-in",
+                ),
+            ],
+            requires: vec![],
+        }
+    }
+
+    fn compute(
+        &self,
+        ctx: &ModuleContext,
+        data: &ParticipantData,
+    ) -> Result<ModuleOutput, ModuleError> {
+        Ok(compute_trend(&Settings::from_ctx(ctx), ctx.period.to, data))
+    }
+}
+
+/// Daily means of the weigh-ins up to `to`: (date, mean kg, number of weigh-ins).
+fn daily_means(data: &ParticipantData, to: NaiveDate) -> Vec<(NaiveDate, f64, usize)> {
+    let mut days: Vec<(NaiveDate, f64, usize)> = Vec::new();
+    for w in data.weights.iter().filter(|w| w.date <= to) {
+        let kg = w.weight.kg();
+        if !kg.is_finite() || kg <= 0.0 {
+            continue;
+        }
+        match days.last_mut() {
+            Some(last) if last.0 == w.date => {
+                last.1 += kg;
+                last.2 += 1;
+            }
+            _ => days.push((w.date, kg, 1)),
+        }
+    }
+    // The loader sorts by date; sort again so that a direct caller cannot break the grouping.
+    days.sort_by_key(|d| d.0);
+    let mut merged: Vec<(NaiveDate, f64, usize)> = Vec::with_capacity(days.len());
+    for d in days {
+        match merged.last_mut() {
+            Some(last) if last.0 == d.0 => {
+                last.1 += d.1;
+                last.2 += d.2;
+            }
+            _ => merged.push(d),
+        }
+    }
+    for d in &mut merged {
+        d.1 /= d.2 as f64;
+    }
+    merged
+}
+
+fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
+    out.push_text(
+        "status",
+        "insufficient_data",
+        status_label("insufficient_data"),
+    );
+    out.push_flag(
+        "insufficient_data",
+        FlagSeverity::Info,
+        format!(
+            "Only {days} day(s) with a weigh-in up to {}: at least 3 are needed to estimate a weight trend.",
+            iso(to)
+        ),
+    );
+}
+
+fn periods_table(rows: Vec<Vec<Cell>>) -> Table {
+    let col = |name: &str, unit: &str, label: &str| Column {
+        name: name.into(),
+        unit: unit.into(),
+        label: label.into(),
+    };
+    Table {
+        name: "periods".into(),
+        label: "Trend periods".into(),
+        columns: vec![
+            col("kind", "", "Kind"),
+            col("start", "", "Start"),
+            col("end", "", "End"),
+            col("days", "d", "Days"),
+            col("slope_kg_per_week", "kg/wk", "Slope"),
+            col("slope_lower_kg_per_week", "kg/wk", "Slope, lower 95 %"),
+            col("slope_upper_kg_per_week", "kg/wk", "Slope, upper 95 %"),
+            col("weight_start_kg", "kg", "Weight at start"),
+            col("weight_end_kg", "kg", "Weight at end"),
+        ],
+        rows,
+    }
+}
+
+fn num(x: f64) -> Cell {
+    if x.is_finite() {
+        Cell::Number(x)
+    } else {
+        Cell::Empty
+    }
+}
+
+/// The whole module computation; `to` is the period end (no data after it are used).
+fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> ModuleOutput {
+    let mut out = ModuleOutput::default();
+    let days = daily_means(data, to);
+    let n_weigh_ins: usize = days.iter().map(|d| d.2).sum();
+    let days_since = days.last().map(|d| (to - d.0).num_days() as f64);
+
+    let l = settings.plateau.window_days;
+    if days.len() < 3 {
+        out.series.push(Series {
+            name: "weight_trend".into(),
+            unit: "kg".into(),
+            step: "daily".into(),
+            label: "Weight trend".into(),
+            points: vec![],
+        });
+        out.series.push(Series {
+            name: "weight_slope".into(),
+            unit: "kg/d".into(),
+            step: "daily".into(),
+            label: "Weight change per day".into(),
+            points: vec![],
+        });
+        out.series.push(weigh_in_series(data, to, &[]));
+        out.tables.push(periods_table(vec![]));
+        push_missing_scalars(&mut out, n_weigh_ins, days_since);
+        insufficient(&mut out, days.len(), to);
+        return out;
+    }
+
+    let first = days[0].0;
+    let last = days[days.len() - 1].0;
+    let last_idx = (last - first).num_days() as usize;
+    let gap = (to - last).num_days() as usize;
+    // Extend the grid to the period end (prediction only) when the gap is within one window, so
+    // the status speaks of the window that ends at the period end; a longer gap has no verdict.
+    let reaches_period_end = gap <= l;
+    let grid_len = if reaches_period_end {
+        last_idx + gap + 1
+    } else {
+        last_idx + 1
+    };
+
+    let obs_t: Vec<f64> = days
+        .iter()
+        .map(|d| (d.0 - first).num_days() as f64)
+        .collect();
+    let obs_y: Vec<Option<f64>> = days.iter().map(|d| Some(d.1)).collect();
+    let fit = estimate_params(&obs_t, &obs_y, settings.outlier_z);
+
+    let mut grid_y: Vec<Option<f64>> = vec![None; grid_len];
+    for (t, y) in obs_t.iter().zip(&obs_y) {
+        grid_y[*t as usize] = *y;
+    }
+    let grid_t: Vec<f64> = (0..grid_len).map(|i| i as f64).collect();
+    let run = kalman_filter(
+        &grid_t,
+        &grid_y,
+        fit.params,
+        StatePrior::diffuse(days[0].1, DIFFUSE_KAPPA),
+        Some(OutlierScreen {
+            z: settings.outlier_z,
+        }),
+    );
+    let sm = rts_smoother(run);
+    let has_obs: Vec<bool> = sm
+        .filter
+        .steps
+        .iter()
+        .map(|s| s.status == StepStatus::Used)
+        .collect();
+    let skipped_dates: Vec<NaiveDate> = sm
+        .filter
+        .steps
+        .iter()
+        .enumerate()
+        .filter(|(_, s)| s.status == StepStatus::Outlier)
+        .map(|(i, _)| add_days(first, i))
+        .collect();
+    let outliers: usize = days
+        .iter()
+        .filter(|d| skipped_dates.contains(&d.0))
+        .map(|d| d.2)
+        .sum();
+
+    // Series: one point per day from the first to the last weigh-in.
+    let band = |i: usize, k: usize| Z_95 * sm.cov[i][k][k].max(0.0).sqrt();
+    let trend_points = (0..=last_idx)
+        .map(|i| Point {
+            date: add_days(first, i),
+            value: sm.mean[i][0],
+            lower: Some(sm.mean[i][0] - band(i, 0)),
+            upper: Some(sm.mean[i][0] + band(i, 0)),
+        })
+        .collect();
+    let slope_points = (0..=last_idx)
+        .map(|i| Point {
+            date: add_days(first, i),
+            value: sm.mean[i][1],
+            lower: Some(sm.mean[i][1] - band(i, 1)),
+            upper: Some(sm.mean[i][1] + band(i, 1)),
+        })
+        .collect();
+    out.series.push(Series {
+        name: "weight_trend".into(),
+        unit: "kg".into(),
+        step: "daily".into(),
+        label: "Weight trend".into(),
+        points: trend_points,
+    });
+    out.series.push(Series {
+        name: "weight_slope".into(),
+        unit: "kg/d".into(),
+        step: "daily".into(),
+        label: "Weight change per day".into(),
+        points: slope_points,
+    });
+    out.series.push(weigh_in_series(data, to, &skipped_dates));
+
+    // Periods.
+    let rows = find_periods(&sm, &has_obs, &settings.plateau)
+        .into_iter()
+        .filter_map(|p| {
+            let code = p.kind.table_code()?;
+            Some(vec![
+                Cell::Text(code.into()),
+                Cell::Text(iso(add_days(first, p.start))),
+                Cell::Text(iso(add_days(first, p.end))),
+                Cell::Number((p.end - p.start + 1) as f64),
+                num(p.slope * 7.0),
+                num(p.lower * 7.0),
+                num(p.upper * 7.0),
+                num(sm.mean[p.start][0]),
+                num(sm.mean[p.end][0]),
+            ])
+        })
+        .collect();
+    out.tables.push(periods_table(rows));
+
+    // Scalars.
+    let cur = sm.mean[last_idx][0];
+    out.push_interval(
+        "current_weight_kg",
+        Some(cur),
+        Some(cur - band(last_idx, 0)),
+        Some(cur + band(last_idx, 0)),
+        "kg",
+        "Current trend weight",
+    );
+    let e = grid_len - 1;
+    let s = e.saturating_sub(l - 1);
+    let window = reaches_period_end.then(|| {
+        let run_min = sm.mean[..=s]
+            .iter()
+            .map(|m| m[0])
+            .fold(f64::INFINITY, f64::min);
+        classify_window(
+            &sm,
+            &has_obs,
+            s,
+            e,
+            sm.mean[0][0],
+            run_min,
+            &settings.plateau,
+        )
+    });
+    let w_slope = window.filter(|w| w.slope.is_finite());
+    out.push_interval(
+        "slope_kg_per_week",
+        w_slope.map(|w| w.slope * 7.0),
+        w_slope.map(|w| w.lower * 7.0),
+        w_slope.map(|w| w.upper * 7.0),
+        "kg/wk",
+        "Trend slope, last weeks",
+    );
+    let ts = reaches_period_end
+        .then(|| {
+            let (t, y): (Vec<f64>, Vec<f64>) = days
+                .iter()
+                .map(|d| ((d.0 - first).num_days() as f64, d.1))
+                .filter(|(t, _)| *t >= s as f64 && *t <= e as f64)
+                .unzip();
+            if t.len() >= 3 {
+                theil_sen::theil_sen(&t, &y)
+            } else {
+                None
+            }
+        })
+        .flatten();
+    out.push_interval(
+        "theil_sen_slope_kg_per_week",
+        ts.map(|r| r.slope * 7.0),
+        ts.map(|r| r.lower * 7.0),
+        ts.map(|r| r.upper * 7.0),
+        "kg/wk",
+        "Theil–Sen slope, last weeks",
+    );
+    out.push_scalar(
+        "noise_sd_kg",
+        Some(fit.params.sigma2_eps.sqrt()),
+        "kg",
+        "Scatter of weigh-ins around the trend",
+    );
+    out.push_scalar(
+        "weigh_ins_used",
+        Some((n_weigh_ins - outliers) as f64),
+        "",
+        "Weigh-ins used",
+    );
+    out.push_scalar(
+        "outliers_ignored",
+        Some(outliers as f64),
+        "",
+        "Weigh-ins ignored as outliers",
+    );
+    out.push_scalar(
+        "days_since_last_weigh_in",
+        days_since,
+        "d",
+        "Days since the last weigh-in",
+    );
+
+    let status = window.map_or("insufficient_data", |w| {
+        status_code(
+            &w,
+            e + 1 >= l,
+            sm.mean[0][0],
+            sm.mean[s][0],
+            &settings.plateau,
+        )
+    });
+    out.push_text("status", status, status_label(status));
+    out
+}
+
+/// Status of the last window.
+///
+/// # Remarks
+/// A verdict with the interval straddling a band edge falls back to the point estimate
+/// (beyond −δ losing, beyond +δ regaining, otherwise plateau or stable). A window shorter than
+/// `plateau_window_days` (early in a program) can only report a clear loss or rise; a plateau or
+/// steady weight needs a full window. A clear rise is `regaining` whether or not a loss came
+/// first (the `periods` table keeps `regain` for rises after a loss).
+fn status_code(
+    w: &plateau::WindowVerdict,
+    full_window: bool,
+    baseline: f64,
+    level_start: f64,
+    settings: &PlateauSettings,
+) -> &'static str {
+    let flat = |baseline: f64, level_start: f64| {
+        if baseline - level_start >= settings.min_prior_loss_percent / 100.0 * baseline {
+            "plateau"
+        } else {
+            "stable"
+        }
+    };
+    match w.kind {
+        WindowKind::InsufficientData => "insufficient_data",
+        WindowKind::Loss => "losing",
+        WindowKind::Regain | WindowKind::Gain => "regaining",
+        _ if !full_window => "insufficient_data",
+        WindowKind::Plateau => "plateau",
+        WindowKind::Stable => "stable",
+        WindowKind::Undecided => {
+            if w.slope < -w.delta {
+                "losing"
+            } else if w.slope > w.delta {
+                "regaining"
+            } else {
+                flat(baseline, level_start)
+            }
+        }
+    }
+}
+
+fn weigh_in_series(data: &ParticipantData, to: NaiveDate, skipped: &[NaiveDate]) -> Series {
+    Series {
+        name: "weigh_ins".into(),
+        unit: "kg".into(),
+        step: "irregular".into(),
+        label: "Weigh-ins".into(),
+        points: data
+            .weights
+            .iter()
+            .filter(|w| w.date <= to && w.weight.kg().is_finite() && w.weight.kg() > 0.0)
+            .filter(|w| !skipped.contains(&w.date))
+            .map(|w| Point {
+                date: w.date,
+                value: w.weight.kg(),
+                lower: None,
+                upper: None,
+            })
+            .collect(),
+    }
+}
+
+fn push_missing_scalars(out: &mut ModuleOutput, n: usize, days_since: Option<f64>) {
+    out.push_interval(
+        "current_weight_kg",
+        None,
+        None,
+        None,
+        "kg",
+        "Current trend weight",
+    );
+    out.push_interval(
+        "slope_kg_per_week",
+        None,
+        None,
+        None,
+        "kg/wk",
+        "Trend slope, last weeks",
+    );
+    out.push_interval(
+        "theil_sen_slope_kg_per_week",
+        None,
+        None,
+        None,
+        "kg/wk",
+        "Theil–Sen slope, last weeks",
+    );
+    out.push_scalar(
+        "noise_sd_kg",
+        None,
+        "kg",
+        "Scatter of weigh-ins around the trend",
+    );
+    out.push_scalar("weigh_ins_used", Some(n as f64), "", "Weigh-ins used");
+    out.push_scalar(
+        "outliers_ignored",
+        Some(0.0),
+        "",
+        "Weigh-ins ignored as outliers",
+    );
+    out.push_scalar(
+        "days_since_last_weigh_in",
+        days_since,
+        "d",
+        "Days since the last weigh-in",
+    );
+}

@@ -1,0 +1,706 @@
+//! Local linear trend (integrated random walk) state-space model: Kalman filter, RTS smoother
+//! and maximum-likelihood estimation of its two variances, for irregularly spaced weigh-ins.
+//!
+//! The model (Harvey 1989, *Forecasting, Structural Time Series Models and the Kalman Filter*;
+//! Durbin & Koopman 2012, *Time Series Analysis by State Space Methods*, 2nd ed.):
+//!
+//! ```text
+//! y_t = μ_t + ε_t,                      ε_t ~ N(0, σ²_ε)
+//! x_t = [μ_t, ν_t]ᵀ  (level kg, slope kg/d)
+//! x_{t+Δ} = T(Δ)·x_t + η,               η ~ N(0, Q(Δ))
+//! T(Δ) = [[1, Δ], [0, 1]]
+//! Q(Δ) = q·[[Δ³/3, Δ²/2], [Δ²/2, Δ]]    (integrated random walk, "smooth trend")
+//! ```
+//!
+//! Because `Q(Δ)` is the exact discretisation of a continuous-time integrated random walk,
+//! one step of Δ days equals Δ steps of one day; the likelihood is therefore evaluated on the
+//! observation times only (cheap), and the smoother runs once on a daily grid (so that every
+//! day gets a state and a band). Everything is O(n) in the number of steps.
+
+/// A 2-vector `[level, slope]`.
+pub type Vec2 = [f64; 2];
+/// A 2×2 matrix, row major.
+pub type Mat2 = [[f64; 2]; 2];
+
+/// Prior variance used for a diffuse start in the module (kg² and (kg/d)²).
+///
+/// # Remarks
+/// 10⁶ (a prior SD of 1000 kg and 1000 kg/d) is diffuse for body weights while keeping the
+/// cancellation in the smoother's first steps far below the precision we report. The
+/// REFERENCE §7.2a check uses 10⁸; [`StatePrior::diffuse`] takes either.
+pub const DIFFUSE_KAPPA: f64 = 1e6;
+
+/// Number of leading observations treated as the diffuse part of the likelihood (the state has
+/// two elements, so the first two innovations carry the prior, not the data's fit).
+pub const DIFFUSE_OBSERVATIONS: usize = 2;
+
+/// z quantile of the standard normal for a two-sided 95 % interval.
+pub const Z_95: f64 = 1.959_963_984_540_054;
+
+/// Bounds on the measurement-noise SD σ_ε, kg.
+///
+/// # Remarks
+/// Program configuration, not literature constants: REFERENCE §7.1 puts a single morning
+/// weight's SD at 0.5–1.0 kg (from memory / derived). 0.2 kg is below any home scale's day-to-day
+/// variation; 2.0 kg is beyond what a person's fluid swings produce, so an estimate outside is a
+/// symptom of too few data or of unscreened errors, and is clamped.
+pub const SIGMA_EPS_BOUNDS_KG: (f64, f64) = (0.2, 2.0);
+
+/// Measurement-noise SD used when there are too few observations to estimate it, kg
+/// (middle of the 0.5–1.0 kg range of REFERENCE §7.1; from memory / program choice).
+pub const DEFAULT_SIGMA_EPS_KG: f64 = 0.7;
+
+/// Signal-to-noise ratio r = q/σ²_ε (1/d³) used when there are too few observations to estimate
+/// it (program choice: over 30 days the slope may drift by about ±0.03 kg/d at σ_ε = 0.7 kg).
+pub const DEFAULT_SNR: f64 = 1e-4;
+
+/// Model variances.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LltParams {
+    /// Measurement-noise variance σ²_ε, kg².
+    pub sigma2_eps: f64,
+    /// Slope-disturbance intensity q, kg²/d³ (variance of the slope's change over Δ days is q·Δ).
+    pub q: f64,
+}
+
+/// Prior mean and covariance of the state at the first time step.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StatePrior {
+    /// Prior mean `[level, slope]`.
+    pub mean: Vec2,
+    /// Prior covariance.
+    pub cov: Mat2,
+}
+
+impl StatePrior {
+    /// A diffuse prior: mean `[level, 0]`, covariance `kappa·I`.
+    pub fn diffuse(level: f64, kappa: f64) -> Self {
+        StatePrior {
+            mean: [level, 0.0],
+            cov: [[kappa, 0.0], [0.0, kappa]],
+        }
+    }
+}
+
+/// Transition matrix for a gap of `delta` days.
+///
+/// # Formula
+/// `T(Δ) = [[1, Δ], [0, 1]]` (REFERENCE §7.2a).
+pub fn transition(delta: f64) -> Mat2 {
+    [[1.0, delta], [0.0, 1.0]]
+}
+
+/// Process-noise covariance for a gap of `delta` days.
+///
+/// # Formula
+/// `Q(Δ) = q·[[Δ³/3, Δ²/2], [Δ²/2, Δ]]` (REFERENCE §7.2a, integrated random walk).
+///
+/// # Remarks
+/// `Q(0)` is zero: two observations at the same time see the same state.
+pub fn process_noise(delta: f64, q: f64) -> Mat2 {
+    let d2 = delta * delta;
+    [
+        [q * d2 * delta / 3.0, q * d2 / 2.0],
+        [q * d2 / 2.0, q * delta],
+    ]
+}
+
+fn mat_mul(a: &Mat2, b: &Mat2) -> Mat2 {
+    [
+        [
+            a[0][0] * b[0][0] + a[0][1] * b[1][0],
+            a[0][0] * b[0][1] + a[0][1] * b[1][1],
+        ],
+        [
+            a[1][0] * b[0][0] + a[1][1] * b[1][0],
+            a[1][0] * b[0][1] + a[1][1] * b[1][1],
+        ],
+    ]
+}
+
+fn transpose(a: &Mat2) -> Mat2 {
+    [[a[0][0], a[1][0]], [a[0][1], a[1][1]]]
+}
+
+fn mat_add(a: &Mat2, b: &Mat2) -> Mat2 {
+    [
+        [a[0][0] + b[0][0], a[0][1] + b[0][1]],
+        [a[1][0] + b[1][0], a[1][1] + b[1][1]],
+    ]
+}
+
+fn mat_sub(a: &Mat2, b: &Mat2) -> Mat2 {
+    [
+        [a[0][0] - b[0][0], a[0][1] - b[0][1]],
+        [a[1][0] - b[1][0], a[1][1] - b[1][1]],
+    ]
+}
+
+fn mat_vec(a: &Mat2, v: &Vec2) -> Vec2 {
+    [
+        a[0][0] * v[0] + a[0][1] * v[1],
+        a[1][0] * v[0] + a[1][1] * v[1],
+    ]
+}
+
+fn symmetrize(a: Mat2) -> Mat2 {
+    let off = 0.5 * (a[0][1] + a[1][0]);
+    [[a[0][0], off], [off, a[1][1]]]
+}
+
+fn inverse(a: &Mat2) -> Option<Mat2> {
+    let det = a[0][0] * a[1][1] - a[0][1] * a[1][0];
+    if !det.is_finite() || det.abs() < f64::MIN_POSITIVE {
+        return None;
+    }
+    Some([
+        [a[1][1] / det, -a[0][1] / det],
+        [-a[1][0] / det, a[0][0] / det],
+    ])
+}
+
+/// What happened to the observation (if any) at one filter step.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StepStatus {
+    /// No observation at this step (prediction only).
+    NoObservation,
+    /// The observation updated the state.
+    Used,
+    /// The observation's standardized innovation exceeded the outlier limit: it was skipped.
+    Outlier,
+}
+
+/// One step of the Kalman filter.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FilterStep {
+    /// Time of the step, days.
+    pub t: f64,
+    /// One-step prediction `a⁻`.
+    pub predicted_mean: Vec2,
+    /// Its covariance `P⁻`.
+    pub predicted_cov: Mat2,
+    /// Filtered state `a` (equals the prediction when nothing was used).
+    pub filtered_mean: Vec2,
+    /// Its covariance `P`.
+    pub filtered_cov: Mat2,
+    /// Innovation `v = y − μ⁻` (0 without an observation).
+    pub innovation: f64,
+    /// Innovation variance `F = P⁻₁₁ + σ²_ε` (0 without an observation).
+    pub innovation_var: f64,
+    /// Whether the observation was used.
+    pub status: StepStatus,
+}
+
+/// Outlier screening rule for the filter.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OutlierScreen {
+    /// Limit on `|v|/√F`; an observation beyond it is skipped (the step becomes a prediction).
+    pub z: f64,
+}
+
+/// Result of a filter pass.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FilterRun {
+    /// One entry per time step.
+    pub steps: Vec<FilterStep>,
+    /// Log-likelihood by the prediction-error decomposition, diffuse part excluded; skipped
+    /// outliers contribute their capped term (see [`kalman_filter`]).
+    pub log_likelihood: f64,
+    /// Number of terms in `log_likelihood`.
+    pub likelihood_terms: usize,
+    /// Number of observations skipped as outliers.
+    pub outliers: usize,
+}
+
+/// Running sums of one filter pass (what the likelihood needs, without storing the steps).
+#[derive(Debug, Clone, Copy, Default)]
+struct LikSums {
+    sum_log_f: f64,
+    sum_v2_over_f_kept: f64,
+    kept: usize,
+    skipped: usize,
+}
+
+/// The core recursion; `on_step` sees every step. Returns the likelihood sums.
+fn filter_core(
+    times: &[f64],
+    values: &[Option<f64>],
+    params: LltParams,
+    prior: StatePrior,
+    screen: Option<OutlierScreen>,
+    mut on_step: impl FnMut(FilterStep),
+) -> LikSums {
+    let mut sums = LikSums::default();
+    let mut a = prior.mean;
+    let mut p = prior.cov;
+    let mut prev_t: Option<f64> = None;
+    let mut seen = 0usize;
+    for (&t, &y) in times.iter().zip(values) {
+        // Predict (the first step uses the prior as its prediction).
+        let (a_pred, p_pred) = match prev_t {
+            None => (a, p),
+            Some(t0) => {
+                let delta = t - t0;
+                let tm = transition(delta);
+                let a_pred = mat_vec(&tm, &a);
+                let p_pred = mat_add(
+                    &mat_mul(&mat_mul(&tm, &p), &transpose(&tm)),
+                    &process_noise(delta, params.q),
+                );
+                (a_pred, symmetrize(p_pred))
+            }
+        };
+        prev_t = Some(t);
+        let mut step = FilterStep {
+            t,
+            predicted_mean: a_pred,
+            predicted_cov: p_pred,
+            filtered_mean: a_pred,
+            filtered_cov: p_pred,
+            innovation: 0.0,
+            innovation_var: 0.0,
+            status: StepStatus::NoObservation,
+        };
+        if let Some(y) = y {
+            let v = y - a_pred[0];
+            let f = p_pred[0][0] + params.sigma2_eps;
+            step.innovation = v;
+            step.innovation_var = f;
+            let diffuse = seen < DIFFUSE_OBSERVATIONS;
+            seen += 1;
+            let outlier = !diffuse && screen.is_some_and(|s| v * v > s.z * s.z * f);
+            if outlier {
+                step.status = StepStatus::Outlier;
+                sums.skipped += 1;
+                sums.sum_log_f += f.ln();
+            } else {
+                // Joseph-form update: keeps P symmetric and positive with a diffuse prior.
+                let k = [p_pred[0][0] / f, p_pred[1][0] / f];
+                let a_new = [a_pred[0] + k[0] * v, a_pred[1] + k[1] * v];
+                let i_kz = [[1.0 - k[0], 0.0], [-k[1], 1.0]];
+                let mut p_new = mat_mul(&mat_mul(&i_kz, &p_pred), &transpose(&i_kz));
+                let s2 = params.sigma2_eps;
+                p_new[0][0] += k[0] * k[0] * s2;
+                p_new[0][1] += k[0] * k[1] * s2;
+                p_new[1][0] += k[1] * k[0] * s2;
+                p_new[1][1] += k[1] * k[1] * s2;
+                step.filtered_mean = a_new;
+                step.filtered_cov = symmetrize(p_new);
+                step.status = StepStatus::Used;
+                if !diffuse {
+                    sums.kept += 1;
+                    sums.sum_log_f += f.ln();
+                    sums.sum_v2_over_f_kept += v * v / f;
+                }
+            }
+        }
+        a = step.filtered_mean;
+        p = step.filtered_cov;
+        on_step(step);
+    }
+    sums
+}
+
+fn log_lik_from_sums(s: &LikSums, z_cap: f64) -> f64 {
+    let m = (s.kept + s.skipped) as f64;
+    -0.5 * (m * (2.0 * std::f64::consts::PI).ln()
+        + s.sum_log_f
+        + s.sum_v2_over_f_kept
+        + s.skipped as f64 * z_cap * z_cap)
+}
+
+/// Kalman filter for the local linear trend model on arbitrary, increasing times.
+///
+/// `times` are days (increasing; equal times are allowed and give Δ = 0), `values[i]` the
+/// observation at `times[i]` or `None` for a prediction-only step.
+///
+/// # Formula
+/// Predict `a⁻ = T a`, `P⁻ = T P Tᵀ + Q`; with `Z = [1, 0]`: `v = y − Z a⁻`,
+/// `F = Z P⁻ Zᵀ + σ²_ε`, `K = P⁻ Zᵀ / F`, `a = a⁻ + K v`,
+/// `P = (I − K Z) P⁻ (I − K Z)ᵀ + K σ²_ε Kᵀ` (Joseph form of `P⁻ − K Z P⁻`) (REFERENCE §7.2a).
+/// Log-likelihood (prediction-error decomposition, Harvey 1989):
+/// `ℓ = −½ Σ_{t > d} (ln 2π + ln F_t + v_t²/F_t)`, where the first `d = 2` observations form the
+/// diffuse part and are left out.
+///
+/// # Remarks
+/// With `screen`, an observation after the diffuse part whose `|v|/√F` exceeds `z` is skipped
+/// (no update); in the likelihood it contributes `−½(ln 2π + ln F + z²)`, i.e. its squared
+/// standardized innovation is capped at `z²` (a trimmed, Huber-type likelihood), so that
+/// parameter values that skip more observations are not rewarded for it. The first two
+/// observations cannot be screened: they define the starting level and slope.
+/// Empty input gives an empty run with log-likelihood 0.
+pub fn kalman_filter(
+    times: &[f64],
+    values: &[Option<f64>],
+    params: LltParams,
+    prior: StatePrior,
+    screen: Option<OutlierScreen>,
+) -> FilterRun {
+    let mut steps = Vec::with_capacity(times.len());
+    let sums = filter_core(times, values, params, prior, screen, |s| steps.push(s));
+    FilterRun {
+        steps,
+        log_likelihood: log_lik_from_sums(&sums, screen.map_or(0.0, |s| s.z)),
+        likelihood_terms: sums.kept + sums.skipped,
+        outliers: sums.skipped,
+    }
+}
+
+/// Smoothed states of one pass (Rauch–Tung–Striebel).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SmoothedRun {
+    /// The filter pass the smoother ran on.
+    pub filter: FilterRun,
+    /// Smoothed means `a_{t|n}`, one per step.
+    pub mean: Vec<Vec2>,
+    /// Smoothed covariances `P_{t|n}`.
+    pub cov: Vec<Mat2>,
+    /// Smoother gains `J_t = P_{t|t} T(Δ_{t+1})ᵀ (P⁻_{t+1})⁻¹`, one per step (the last is zero).
+    pub gain: Vec<Mat2>,
+}
+
+/// Rauch–Tung–Striebel fixed-interval smoother over a filter pass.
+///
+/// # Formula
+/// `J_t = P_{t|t} Tᵀ (P⁻_{t+1})⁻¹`, `a_{t|n} = a_{t|t} + J_t (a_{t+1|n} − a⁻_{t+1})`,
+/// `P_{t|n} = P_{t|t} + J_t (P_{t+1|n} − P⁻_{t+1}) J_tᵀ` (Durbin & Koopman 2012, §4.4, in
+/// covariance form). The smoothed cross-covariance of two steps `s < e` is
+/// `Cov(x_s, x_e | y) = J_s J_{s+1} ⋯ J_{e−1} P_{e|n}` ([`SmoothedRun::cross_cov`]).
+///
+/// # Remarks
+/// O(n). A singular `P⁻` (only possible with q = 0 and no prior variance) gives a zero gain,
+/// i.e. the filtered state is kept.
+pub fn rts_smoother(filter: FilterRun) -> SmoothedRun {
+    let n = filter.steps.len();
+    let mut mean = vec![[0.0; 2]; n];
+    let mut cov = vec![[[0.0; 2]; 2]; n];
+    let mut gain = vec![[[0.0; 2]; 2]; n];
+    if n == 0 {
+        return SmoothedRun {
+            filter,
+            mean,
+            cov,
+            gain,
+        };
+    }
+    mean[n - 1] = filter.steps[n - 1].filtered_mean;
+    cov[n - 1] = filter.steps[n - 1].filtered_cov;
+    for t in (0..n - 1).rev() {
+        let cur = &filter.steps[t];
+        let next = &filter.steps[t + 1];
+        let tm = transition(next.t - cur.t);
+        let j = match inverse(&next.predicted_cov) {
+            Some(inv) => mat_mul(&mat_mul(&cur.filtered_cov, &transpose(&tm)), &inv),
+            None => [[0.0; 2]; 2],
+        };
+        let dm = [
+            mean[t + 1][0] - next.predicted_mean[0],
+            mean[t + 1][1] - next.predicted_mean[1],
+        ];
+        let corr = mat_vec(&j, &dm);
+        mean[t] = [
+            cur.filtered_mean[0] + corr[0],
+            cur.filtered_mean[1] + corr[1],
+        ];
+        let dp = mat_sub(&cov[t + 1], &next.predicted_cov);
+        cov[t] = symmetrize(mat_add(
+            &cur.filtered_cov,
+            &mat_mul(&mat_mul(&j, &dp), &transpose(&j)),
+        ));
+        gain[t] = j;
+    }
+    SmoothedRun {
+        filter,
+        mean,
+        cov,
+        gain,
+    }
+}
+
+impl SmoothedRun {
+    /// Smoothed cross-covariance `Cov(x_s, x_e | all data)` for steps `s ≤ e`.
+    ///
+    /// # Formula
+    /// `J_s J_{s+1} ⋯ J_{e−1} P_{e|n}` (lag-covariance of the RTS smoother; for `s = e`, `P_{e|n}`).
+    ///
+    /// # Remarks
+    /// O(e − s). Panics if `e` is out of range or `s > e` (a programming error).
+    pub fn cross_cov(&self, s: usize, e: usize) -> Mat2 {
+        assert!(
+            s <= e && e < self.cov.len(),
+            "cross_cov({s}, {e}) out of range"
+        );
+        let mut acc = self.cov[e];
+        for k in (s..e).rev() {
+            acc = mat_mul(&self.gain[k], &acc);
+        }
+        acc
+    }
+
+    /// Mean slope between steps `s < e`: `(μ_e − μ_s)/(t_e − t_s)` with its standard deviation.
+    ///
+    /// # Formula
+    /// `Var = (P_{s|n,11} + P_{e|n,11} − 2·Cov(μ_s, μ_e | y)) / (t_e − t_s)²`, the cross term
+    /// from [`SmoothedRun::cross_cov`]. Under the model `μ_e − μ_s = ∫ ν dt`, so this is the
+    /// time-average of the slope over the window, with its exact smoothed variance.
+    ///
+    /// # Remarks
+    /// Returns `None` when `s >= e` or the times coincide.
+    pub fn mean_slope(&self, s: usize, e: usize) -> Option<(f64, f64)> {
+        if s >= e || e >= self.mean.len() {
+            return None;
+        }
+        let span = self.filter.steps[e].t - self.filter.steps[s].t;
+        if span <= 0.0 {
+            return None;
+        }
+        let c = self.cross_cov(s, e);
+        let var = (self.cov[s][0][0] + self.cov[e][0][0] - 2.0 * c[0][0]).max(0.0);
+        Some((
+            (self.mean[e][0] - self.mean[s][0]) / span,
+            var.sqrt() / span,
+        ))
+    }
+}
+
+/// How the variances were obtained.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FitMethod {
+    /// Both σ²_ε and q by maximum likelihood.
+    MaximumLikelihood,
+    /// q fixed at `DEFAULT_SNR·σ²_ε`, σ²_ε by maximum likelihood (too few observations for both).
+    NoiseOnly,
+    /// Both fixed at defaults (fewer than 5 observations).
+    Defaults,
+}
+
+/// Result of [`estimate_params`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ParamFit {
+    /// Estimated variances.
+    pub params: LltParams,
+    /// Profile log-likelihood at the estimate (0 for [`FitMethod::Defaults`]).
+    pub log_likelihood: f64,
+    /// How they were obtained.
+    pub method: FitMethod,
+}
+
+/// Robust preliminary noise SD from successive differences, kg.
+///
+/// # Formula
+/// `σ₀ = 1.4826 · median(|d_i − median(d)|) / √2`, `d_i = y_{i+1} − y_i` (MAD of first
+/// differences; REFERENCE §7.2e suggests this scale), clamped to [`SIGMA_EPS_BOUNDS_KG`].
+///
+/// # Remarks
+/// Fewer than 3 differences give [`DEFAULT_SIGMA_EPS_KG`]. It sets the scale the outlier
+/// screen uses while the variances are being estimated.
+pub fn robust_noise_sd(values: &[f64]) -> f64 {
+    if values.len() < 4 {
+        return DEFAULT_SIGMA_EPS_KG;
+    }
+    let mut d: Vec<f64> = values.windows(2).map(|w| w[1] - w[0]).collect();
+    let med = median_in_place(&mut d);
+    let mut dev: Vec<f64> = d.iter().map(|x| (x - med).abs()).collect();
+    let mad = median_in_place(&mut dev);
+    let (lo, hi) = SIGMA_EPS_BOUNDS_KG;
+    (1.4826 * mad / std::f64::consts::SQRT_2).clamp(lo, hi)
+}
+
+pub(crate) fn median_in_place(x: &mut [f64]) -> f64 {
+    x.sort_by(f64::total_cmp);
+    let n = x.len();
+    if n == 0 {
+        f64::NAN
+    } else if n % 2 == 1 {
+        x[n / 2]
+    } else {
+        0.5 * (x[n / 2 - 1] + x[n / 2])
+    }
+}
+
+/// Profile log-likelihood at signal-to-noise ratio `r = q/σ²_ε`, with σ²_ε concentrated out.
+/// Returns (ℓ, σ̂²).
+fn profile(times: &[f64], values: &[Option<f64>], r: f64, sigma0: f64, z: f64) -> (f64, f64) {
+    let s0 = sigma0 * sigma0;
+    let prior = StatePrior::diffuse(first_value(values), DIFFUSE_KAPPA);
+    let sums = filter_core(
+        times,
+        values,
+        LltParams {
+            sigma2_eps: s0,
+            q: r * s0,
+        },
+        prior,
+        Some(OutlierScreen { z }),
+        |_| {},
+    );
+    let (lo, hi) = SIGMA_EPS_BOUNDS_KG;
+    let c = if sums.kept > 0 {
+        sums.sum_v2_over_f_kept / sums.kept as f64
+    } else {
+        1.0
+    };
+    let c = c.clamp(lo * lo / s0, hi * hi / s0);
+    // Rescaling every variance by c leaves v unchanged and multiplies each F by c.
+    let m = (sums.kept + sums.skipped) as f64;
+    let ll = -0.5
+        * (m * (2.0 * std::f64::consts::PI).ln()
+            + sums.sum_log_f
+            + m * c.ln()
+            + sums.sum_v2_over_f_kept / c
+            + sums.skipped as f64 * z * z);
+    (ll, c * s0)
+}
+
+fn first_value(values: &[Option<f64>]) -> f64 {
+    values.iter().flatten().next().copied().unwrap_or(0.0)
+}
+
+/// Estimates σ²_ε and q by maximum likelihood.
+///
+/// # Formula
+/// The variances are written `σ²_ε` and `q = r·σ²_ε`. For fixed `r`, scaling every variance by
+/// `c` leaves the innovations unchanged and multiplies every `F_t` by `c`, so σ²_ε has the closed
+/// form `σ̂²(r) = mean(v_t²/F*_t)` over the non-diffuse, non-skipped innovations (F* computed at
+/// unit scale), clamped to the bounds [`SIGMA_EPS_BOUNDS_KG`] (the profile is unimodal in σ², so
+/// clamping gives the constrained maximum). `r` is then chosen by maximising the profile
+/// log-likelihood over `log10 r ∈ [−9, −1]` on a half-decade grid (17 points), refined by 10
+/// golden-section steps between the neighbours of the best grid point (to ±0.01 decade).
+///
+/// # Remarks
+/// The outlier screen inside the likelihood uses the robust preliminary scale
+/// [`robust_noise_sd`] of the observed values, so that an outlier cannot inflate the scale
+/// that is meant to catch it. Fewer than 10 observations (8 non-diffuse innovations) are too
+/// few to estimate both variances: then r = [`DEFAULT_SNR`] and only σ²_ε is estimated; fewer
+/// than 5 observations use both defaults. About 28 filter passes over the observation times.
+pub fn estimate_params(times: &[f64], values: &[Option<f64>], outlier_z: f64) -> ParamFit {
+    let observed: Vec<f64> = values.iter().flatten().copied().collect();
+    let n = observed.len();
+    let sigma0 = robust_noise_sd(&observed);
+    if n < 5 {
+        let s2 = DEFAULT_SIGMA_EPS_KG * DEFAULT_SIGMA_EPS_KG;
+        return ParamFit {
+            params: LltParams {
+                sigma2_eps: s2,
+                q: DEFAULT_SNR * s2,
+            },
+            log_likelihood: 0.0,
+            method: FitMethod::Defaults,
+        };
+    }
+    if n < 10 {
+        let (ll, s2) = profile(times, values, DEFAULT_SNR, sigma0, outlier_z);
+        return ParamFit {
+            params: LltParams {
+                sigma2_eps: s2,
+                q: DEFAULT_SNR * s2,
+            },
+            log_likelihood: ll,
+            method: FitMethod::NoiseOnly,
+        };
+    }
+    let eval = |log_r: f64| profile(times, values, 10f64.powf(log_r), sigma0, outlier_z);
+    let grid: Vec<f64> = (0..17).map(|i| -9.0 + 0.5 * i as f64).collect();
+    let mut best = (f64::NEG_INFINITY, 0usize);
+    for (i, &g) in grid.iter().enumerate() {
+        let (ll, _) = eval(g);
+        if ll > best.0 {
+            best = (ll, i);
+        }
+    }
+    let mut lo = grid[best.1.saturating_sub(1)];
+    let mut hi = grid[(best.1 + 1).min(grid.len() - 1)];
+    let ratio = (5f64.sqrt() - 1.0) / 2.0;
+    let mut x1 = hi - ratio * (hi - lo);
+    let mut x2 = lo + ratio * (hi - lo);
+    let mut f1 = eval(x1).0;
+    let mut f2 = eval(x2).0;
+    for _ in 0..10 {
+        if f1 > f2 {
+            hi = x2;
+            x2 = x1;
+            f2 = f1;
+            x1 = hi - ratio * (hi - lo);
+            f1 = eval(x1).0;
+        } else {
+            lo = x1;
+            x1 = x2;
+            f1 = f2;
+            x2 = lo + ratio * (hi - lo);
+            f2 = eval(x2).0;
+        }
+    }
+    // Keep the grid point if the refinement did not beat it (a boundary optimum).
+    let (x_best, ll_best) = if f1.max(f2) >= best.0 {
+        if f1 > f2 { (x1, f1) } else { (x2, f2) }
+    } else {
+        (grid[best.1], best.0)
+    };
+    let r = 10f64.powf(x_best);
+    let (_, s2) = eval(x_best);
+    ParamFit {
+        params: LltParams {
+            sigma2_eps: s2,
+            q: r * s2,
+        },
+        log_likelihood: ll_best,
+        method: FitMethod::MaximumLikelihood,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn q_zero_filter_reproduces_reference_ols() {
+        // REFERENCE §7.2a [D] (regression value for our implementation of the formula).
+        let t = [0.0, 7.0, 14.0, 21.0, 28.0];
+        let y = [90.0, 89.4, 89.6, 88.9, 88.7].map(Some);
+        let run = kalman_filter(
+            &t,
+            &y,
+            LltParams {
+                sigma2_eps: 0.25,
+                q: 0.0,
+            },
+            StatePrior::diffuse(0.0, 1e8),
+            None,
+        );
+        let last = run.steps.last().unwrap();
+        assert!((last.filtered_mean[0] - 88.700).abs() < 1e-5);
+        assert!((last.filtered_mean[1] + 0.044_285_7).abs() < 1e-5);
+        assert!((last.filtered_cov[1][1].sqrt() - 0.022_587_7).abs() < 1e-5);
+    }
+
+    #[test]
+    fn one_step_of_two_days_equals_two_steps_of_one_day() {
+        let p = LltParams {
+            sigma2_eps: 0.3,
+            q: 0.01,
+        };
+        let prior = StatePrior::diffuse(80.0, 1e6);
+        let a = kalman_filter(
+            &[0.0, 1.0, 3.0],
+            &[Some(80.0), Some(79.5), Some(79.9)],
+            p,
+            prior,
+            None,
+        );
+        let b = kalman_filter(
+            &[0.0, 1.0, 2.0, 3.0],
+            &[Some(80.0), Some(79.5), None, Some(79.9)],
+            p,
+            prior,
+            None,
+        );
+        let (sa, sb) = (a.steps.last().unwrap(), b.steps.last().unwrap());
+        for i in 0..2 {
+            assert!((sa.filtered_mean[i] - sb.filtered_mean[i]).abs() < 1e-9);
+            for j in 0..2 {
+                assert!((sa.filtered_cov[i][j] - sb.filtered_cov[i][j]).abs() < 1e-9);
+            }
+        }
+        assert!((a.log_likelihood - b.log_likelihood).abs() < 1e-9);
+    }
+}

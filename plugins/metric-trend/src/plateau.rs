@@ -1,0 +1,251 @@
+//! Window verdicts (plateau, loss, regain, insufficient data) over the smoothed trend, and
+//! their merging into periods (REFERENCE §7.3).
+//!
+//! Every threshold here is **program configuration, not a literature constant** (REFERENCE
+//! §7.3: no consensus definition of a weight-loss plateau exists). The defaults are the ones
+//! REFERENCE §7.3 recommends: a 28-day window (four whole weeks, so the weekly weight cycle
+//! cancels), at least 8 weigh-in days spread over at least 3 of the 4 weeks, an equivalence band
+//! of ±0.25 % of body weight per week, and a prior loss of at least 3 % of baseline (common
+//! practice; Stevens et al. 2006, *Int J Obes* 30:391, treat <3 % change as maintenance).
+
+use crate::llt::{SmoothedRun, Z_95};
+
+/// Plateau-detection settings (program configuration).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PlateauSettings {
+    /// Window length in days (default 28).
+    pub window_days: usize,
+    /// Minimum number of days with a used weigh-in in a window (default 8).
+    pub min_weigh_ins: usize,
+    /// Equivalence band δ, % of body weight per week (default 0.25).
+    pub band_percent_per_week: f64,
+    /// Loss before a window, % of baseline, needed to call a plateau or a regain (default 3).
+    pub min_prior_loss_percent: f64,
+}
+
+impl Default for PlateauSettings {
+    fn default() -> Self {
+        PlateauSettings {
+            window_days: 28,
+            min_weigh_ins: 8,
+            band_percent_per_week: 0.25,
+            min_prior_loss_percent: 3.0,
+        }
+    }
+}
+
+/// Verdict on one window.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum WindowKind {
+    /// Interval of the mean slope inside ±δ after a meaningful loss.
+    Plateau,
+    /// Interval inside ±δ without a meaningful loss before the window.
+    Stable,
+    /// Upper bound of the interval below −δ.
+    Loss,
+    /// Lower bound above +δ after a meaningful loss.
+    Regain,
+    /// Lower bound above +δ without a meaningful loss before.
+    Gain,
+    /// Enough data, but the interval straddles a band edge: no verdict.
+    Undecided,
+    /// Too few weigh-ins, too little spread, or an interval wider than ±2δ.
+    InsufficientData,
+}
+
+impl WindowKind {
+    /// Code used in the `periods` table, for the kinds that appear there.
+    pub fn table_code(self) -> Option<&'static str> {
+        match self {
+            WindowKind::Plateau => Some("plateau"),
+            WindowKind::Regain => Some("regain"),
+            WindowKind::Loss => Some("loss"),
+            WindowKind::InsufficientData => Some("insufficient_data"),
+            WindowKind::Stable | WindowKind::Gain | WindowKind::Undecided => None,
+        }
+    }
+}
+
+/// One classified window on the daily grid (indices are grid days, inclusive).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WindowVerdict {
+    /// First day index.
+    pub start: usize,
+    /// Last day index.
+    pub end: usize,
+    /// Verdict.
+    pub kind: WindowKind,
+    /// Mean slope over the window, kg/d (NaN when it could not be computed).
+    pub slope: f64,
+    /// Lower 95 % bound, kg/d.
+    pub lower: f64,
+    /// Upper 95 % bound, kg/d.
+    pub upper: f64,
+    /// Band half-width δ used, kg/d.
+    pub delta: f64,
+}
+
+/// Days with a used weigh-in in `[s, e]` and the number of 7-day blocks (counted from `s`)
+/// that hold at least one.
+pub fn coverage(has_obs: &[bool], s: usize, e: usize) -> (usize, usize) {
+    let mut days = 0;
+    let mut blocks = Vec::new();
+    for (d, &h) in has_obs.iter().enumerate().take(e + 1).skip(s) {
+        if h {
+            days += 1;
+            let b = (d - s) / 7;
+            if !blocks.contains(&b) {
+                blocks.push(b);
+            }
+        }
+    }
+    (days, blocks.len())
+}
+
+/// Classifies the window `[s, e]` of the smoothed daily trend.
+///
+/// # Formula
+/// Mean slope `m = (μ_e − μ_s)/(e − s)` with `SD` from the smoothed states and their lag
+/// covariance ([`SmoothedRun::mean_slope`]); interval `m ± 1.96·SD`. Band
+/// `δ = band% × μ_e / 7` kg/d. In this order:
+/// 1. fewer than `min_weigh_ins` weigh-in days, or weigh-ins in fewer than `⌈0.75·B⌉` of the
+///    `B = ⌈L/7⌉` weekly blocks (3 of 4 for 28 days), or `1.96·SD > 2δ` → insufficient data;
+/// 2. interval inside `[−δ, δ]` → plateau when `baseline − μ_s ≥ p% × baseline`, else stable;
+/// 3. upper bound `< −δ` → loss;
+/// 4. lower bound `> δ` → regain when the largest loss reached up to `s`,
+///    `baseline − min_{d≤s} μ_d`, is at least `p% × baseline`; else gain;
+/// 5. otherwise undecided.
+///
+/// # Remarks
+/// The mean slope is taken from the smoother rather than refitted on the window's
+/// observations: it uses the model's noise estimate from all data, handles uneven spacing
+/// and keeps the plateau verdict consistent with the plotted trend. `min_level_up_to_s` is
+/// `min_{d≤s} μ_d`; `baseline` the smoothed level on the first day.
+pub fn classify_window(
+    sm: &SmoothedRun,
+    has_obs: &[bool],
+    s: usize,
+    e: usize,
+    baseline: f64,
+    min_level_up_to_s: f64,
+    settings: &PlateauSettings,
+) -> WindowVerdict {
+    let level_e = sm.mean[e][0];
+    let delta = settings.band_percent_per_week / 100.0 * level_e / 7.0;
+    let mut v = WindowVerdict {
+        start: s,
+        end: e,
+        kind: WindowKind::InsufficientData,
+        slope: f64::NAN,
+        lower: f64::NAN,
+        upper: f64::NAN,
+        delta,
+    };
+    let Some((m, sd)) = sm.mean_slope(s, e) else {
+        return v;
+    };
+    v.slope = m;
+    v.lower = m - Z_95 * sd;
+    v.upper = m + Z_95 * sd;
+    let (days, blocks_hit) = coverage(has_obs, s, e);
+    let blocks = (e - s + 1).div_ceil(7);
+    let blocks_needed = (0.75 * blocks as f64).ceil() as usize;
+    if days < settings.min_weigh_ins || blocks_hit < blocks_needed || Z_95 * sd > 2.0 * delta {
+        return v;
+    }
+    let loss_needed = settings.min_prior_loss_percent / 100.0 * baseline;
+    v.kind = if v.lower >= -delta && v.upper <= delta {
+        if baseline - sm.mean[s][0] >= loss_needed {
+            WindowKind::Plateau
+        } else {
+            WindowKind::Stable
+        }
+    } else if v.upper < -delta {
+        WindowKind::Loss
+    } else if v.lower > delta {
+        if baseline - min_level_up_to_s >= loss_needed {
+            WindowKind::Regain
+        } else {
+            WindowKind::Gain
+        }
+    } else {
+        WindowKind::Undecided
+    };
+    v
+}
+
+/// A merged period of consecutive windows of one kind.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Period {
+    /// Kind (one with a [`WindowKind::table_code`]).
+    pub kind: WindowKind,
+    /// First day index.
+    pub start: usize,
+    /// Last day index.
+    pub end: usize,
+    /// Mean slope over the whole period, kg/d, with its 95 % interval.
+    pub slope: f64,
+    /// Lower bound, kg/d.
+    pub lower: f64,
+    /// Upper bound, kg/d.
+    pub upper: f64,
+}
+
+/// Classifies every full window (one per end day) and merges runs of consecutive windows of
+/// the same table kind into periods, sorted by start.
+///
+/// # Remarks
+/// Consecutive sliding windows overlap, so a run of them covers `[first start, last end]`;
+/// the period's slope and interval are recomputed over that whole span from the smoother.
+/// Periods of different kinds may overlap at their edges (a loss window and the plateau window
+/// that follows share days). Fewer grid days than one window give no periods.
+pub fn find_periods(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettings) -> Vec<Period> {
+    let n = sm.mean.len();
+    let l = settings.window_days.max(2);
+    if n < l {
+        return Vec::new();
+    }
+    let baseline = sm.mean[0][0];
+    // Running minimum of the level up to each day.
+    let mut run_min = Vec::with_capacity(n);
+    let mut cur = f64::INFINITY;
+    for m in &sm.mean {
+        cur = cur.min(m[0]);
+        run_min.push(cur);
+    }
+    let mut periods: Vec<Period> = Vec::new();
+    let mut open: Option<(WindowKind, usize, usize)> = None;
+    let close = |k: WindowKind, s: usize, e: usize, periods: &mut Vec<Period>| {
+        let (slope, lower, upper) = match sm.mean_slope(s, e) {
+            Some((m, sd)) => (m, m - Z_95 * sd, m + Z_95 * sd),
+            None => (f64::NAN, f64::NAN, f64::NAN),
+        };
+        periods.push(Period {
+            kind: k,
+            start: s,
+            end: e,
+            slope,
+            lower,
+            upper,
+        });
+    };
+    for e in (l - 1)..n {
+        let s = e + 1 - l;
+        let v = classify_window(sm, has_obs, s, e, baseline, run_min[s], settings);
+        let kind = v.kind.table_code().map(|_| v.kind);
+        match (open, kind) {
+            (Some((k, ps, _)), Some(nk)) if k == nk => open = Some((k, ps, e)),
+            (o, nk) => {
+                if let Some((k, ps, pe)) = o {
+                    close(k, ps, pe, &mut periods);
+                }
+                open = nk.map(|k| (k, s, e));
+            }
+        }
+    }
+    if let Some((k, ps, pe)) = open {
+        close(k, ps, pe, &mut periods);
+    }
+    periods.sort_by_key(|p| (p.start, p.end));
+    periods
+}
