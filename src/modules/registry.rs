@@ -1,0 +1,463 @@
+//! The built-in modules, and checking a program's `modules:` list into a [`ModuleSet`].
+//!
+//! The host is strict about the keys it owns (`id`, `command`, `timeout_seconds`, `optional`)
+//! and leaves the meaning of `with:` to each module's spec: settings are checked by
+//! [`ModuleSpec::resolve_settings`], so a module declares its settings once and every problem is
+//! reported with the entry's line in `program.yaml`.
+
+use super::external::{CallError, DEFAULT_TIMEOUT_SECONDS, ExternalModule, Launch, VersionCheck};
+use crate::diag::Diagnostic;
+use crate::program::{ModuleDef, Program};
+use cohortpress_metric_api::{MetricModule, ModuleSpec};
+use std::collections::BTreeSet;
+use std::fmt;
+use std::time::Duration;
+
+/// Every built-in module, in a fixed order (the order `cohortpress modules` lists them, and one
+/// in which every module's `requires` come before it).
+pub fn builtin_modules() -> Vec<Box<dyn MetricModule>> {
+    // trend, energy and outcomes are added here as soon as their crates export them.
+    vec![Box::new(cohortpress_metric_adherence::AdherenceModule)]
+}
+
+/// One checked module of a program.
+pub(super) struct Entry {
+    /// The module's spec (for an external module, as announced in its handshake).
+    pub(super) spec: ModuleSpec,
+    /// Settings with every default filled in.
+    pub(super) settings: serde_json::Value,
+    /// The module itself.
+    pub(super) module: Box<dyn MetricModule>,
+    /// For an external module, its `command:` (part of the fingerprint).
+    pub(super) command: Option<Vec<String>>,
+}
+
+/// The modules of one program, in `program.yaml` order, with settings resolved. Built once per
+/// run by [`build_module_set`]; shared read-only by every participant's computation.
+pub struct ModuleSet {
+    pub(super) entries: Vec<Entry>,
+}
+
+impl fmt::Debug for ModuleSet {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.debug_struct("ModuleSet")
+            .field("ids", &self.ids())
+            .finish()
+    }
+}
+
+impl ModuleSet {
+    /// Module ids in run order.
+    pub fn ids(&self) -> Vec<String> {
+        self.entries.iter().map(|e| e.spec.id.clone()).collect()
+    }
+
+    /// Module specs in run order.
+    pub fn specs(&self) -> Vec<ModuleSpec> {
+        self.entries.iter().map(|e| e.spec.clone()).collect()
+    }
+
+    /// Resolved settings of module `id`.
+    pub fn settings(&self, id: &str) -> Option<&serde_json::Value> {
+        self.entries
+            .iter()
+            .find(|e| e.spec.id == id)
+            .map(|e| &e.settings)
+    }
+
+    /// Number of modules.
+    pub fn len(&self) -> usize {
+        self.entries.len()
+    }
+
+    /// Whether the set has no modules.
+    pub fn is_empty(&self) -> bool {
+        self.entries.is_empty()
+    }
+
+    /// Stable text naming every module, its version, how it is started and its resolved
+    /// settings, one line per module in run order. Two runs whose fingerprints are equal ran the
+    /// same modules with the same settings. Keys are sorted here rather than trusting the JSON
+    /// map's order, which a dependency's feature flags could change.
+    pub fn settings_fingerprint(&self) -> String {
+        let mut s = String::new();
+        for e in &self.entries {
+            s.push_str(&e.spec.id);
+            s.push(' ');
+            s.push_str(&e.spec.version);
+            s.push(' ');
+            match &e.command {
+                None => s.push_str("builtin"),
+                Some(c) => canonical_json(&serde_json::json!(c), &mut s),
+            }
+            s.push(' ');
+            canonical_json(&e.settings, &mut s);
+            s.push('\n');
+        }
+        s
+    }
+}
+
+/// JSON with object keys sorted, no spaces.
+fn canonical_json(v: &serde_json::Value, out: &mut String) {
+    match v {
+        serde_json::Value::Object(m) => {
+            let mut keys: Vec<&String> = m.keys().collect();
+            keys.sort();
+            out.push('{');
+            for (i, k) in keys.into_iter().enumerate() {
+                if i > 0 {
+                    out.push(',');
+                }
+                out.push_str(&serde_json::Value::String(k.clone()).to_string());
+                out.push(':');
+                canonical_json(&m[k], out);
+            }
+            out.push('}');
+        }
+        serde_json::Value::Array(a) => {
+            out.push('[');
+            for (i, x) in a.iter().enumerate() {
+                if i > 0 {
+                    out.push(',');
+                }
+                canonical_json(x, out);
+            }
+            out.push(']');
+        }
+        other => out.push_str(&other.to_string()),
+    }
+}
+
+/// Checks the program's `modules:` list and builds its [`ModuleSet`].
+///
+/// Each entry must be a built-in id or have a `command`; its `with:` settings must fit the
+/// module's spec; every module it `requires` must come earlier; an external module must answer
+/// the handshake with our protocol major version and its listed id. A missing external program
+/// marked `optional: true` is skipped with a warning (and so is anything that requires it).
+/// Returns the set and its warnings, or every problem found.
+pub fn build_module_set(
+    program: &Program,
+) -> Result<(ModuleSet, Vec<Diagnostic>), Vec<Diagnostic>> {
+    build_with(program, builtin_modules())
+}
+
+/// [`build_module_set`] against a given list of built-ins (tests use their own).
+pub(crate) fn build_with(
+    program: &Program,
+    builtins: Vec<Box<dyn MetricModule>>,
+) -> Result<(ModuleSet, Vec<Diagnostic>), Vec<Diagnostic>> {
+    let builtin_ids: Vec<String> = builtins.iter().map(|m| m.spec().id).collect();
+    let mut builtins: Vec<Option<Box<dyn MetricModule>>> = builtins.into_iter().map(Some).collect();
+    let defs = &program.def.modules;
+    let mut diags = Vec::new();
+    let mut entries: Vec<Entry> = Vec::new();
+    // Ids that are not in the set although listed: skipped optional modules, and modules that
+    // had errors (so their dependants are not reported a second time).
+    let mut skipped: BTreeSet<String> = BTreeSet::new();
+    let mut broken: BTreeSet<String> = BTreeSet::new();
+
+    for (i, def) in defs.iter().enumerate() {
+        let at = |d: Diagnostic, field: &str| -> Diagnostic {
+            let d = d.field(format!("modules[{i}]{field}"));
+            match program.module_lines.get(&i) {
+                Some(&line) => d.at(line, None),
+                None => d,
+            }
+        };
+        let id = def.id.as_str();
+        if let Some(j) = defs[..i].iter().position(|d| d.id == def.id) {
+            diags.push(
+                at(
+                    Diagnostic::error("program.yaml", format!("module `{id}` is listed twice")),
+                    ".id",
+                )
+                .found(format!("entries {} and {}", j + 1, i + 1))
+                .hint("list each module once; its outputs are known by its id"),
+            );
+            continue;
+        }
+
+        let (module, spec): (Box<dyn MetricModule>, ModuleSpec) = match &def.command {
+            None => {
+                let Some(k) = builtin_ids.iter().position(|b| b == id) else {
+                    diags.push(
+                        at(
+                            Diagnostic::error("program.yaml", format!("unknown module `{id}`")),
+                            ".id",
+                        )
+                        .expected(format!("a built-in module: {}", builtin_ids.join(", ")))
+                        .found(format!("`{id}`"))
+                        .hint(
+                            "an external module needs `command:` with its program and \
+                             arguments; `cohortpress modules` lists the built-in modules",
+                        ),
+                    );
+                    broken.insert(def.id.clone());
+                    continue;
+                };
+                if def.timeout_seconds.is_some() || def.optional {
+                    diags.push(at(
+                        Diagnostic::warning(
+                            "program.yaml",
+                            format!(
+                                "`timeout_seconds` and `optional` apply to external modules \
+                                 only; they are ignored for the built-in module `{id}`"
+                            ),
+                        ),
+                        "",
+                    ));
+                }
+                let module = builtins[k].take().expect("each built-in is taken once");
+                let spec = module.spec();
+                (module, spec)
+            }
+            Some(command) => match external(program, def, command, &builtin_ids, &at, &mut diags) {
+                External::Ready(m) => {
+                    let spec = m.spec();
+                    (m as Box<dyn MetricModule>, spec)
+                }
+                External::Skipped => {
+                    skipped.insert(def.id.clone());
+                    continue;
+                }
+                External::Broken => {
+                    broken.insert(def.id.clone());
+                    continue;
+                }
+            },
+        };
+
+        let given = match &def.with {
+            None => serde_json::Value::Null,
+            Some(y) => match serde_json::to_value(y) {
+                Ok(v) => v,
+                Err(e) => {
+                    diags.push(
+                        at(
+                            Diagnostic::error(
+                                "program.yaml",
+                                format!("the settings of module `{id}` cannot be read"),
+                            ),
+                            ".with",
+                        )
+                        .expected("a mapping of setting names to values")
+                        .found(e.to_string()),
+                    );
+                    broken.insert(def.id.clone());
+                    continue;
+                }
+            },
+        };
+        let settings =
+            match spec.resolve_settings(&given) {
+                Ok(s) => Some(s),
+                Err(problems) => {
+                    for p in problems {
+                        diags.push(at(Diagnostic::error("program.yaml", p), ".with").hint(
+                            format!("`cohortpress modules` lists the settings of `{id}`"),
+                        ));
+                    }
+                    None
+                }
+            };
+
+        let mut usable = settings.is_some();
+        for need in &spec.requires {
+            if entries.iter().any(|e| &e.spec.id == need) || broken.contains(need) {
+                // Satisfied, or already reported as broken (one message is enough).
+                usable &= !broken.contains(need);
+                continue;
+            }
+            if skipped.contains(need) {
+                diags.push(at(
+                    Diagnostic::warning(
+                        "program.yaml",
+                        format!(
+                            "module `{id}` is skipped because it requires `{need}`, which was \
+                             skipped"
+                        ),
+                    ),
+                    ".id",
+                ));
+                skipped.insert(def.id.clone());
+                usable = false;
+                continue;
+            }
+            let later = defs[i + 1..].iter().any(|d| &d.id == need);
+            let message = if later {
+                format!("module `{id}` requires `{need}`, which comes after it in `modules:`")
+            } else {
+                format!("module `{id}` requires `{need}`, which is not in `modules:`")
+            };
+            let hint = if later {
+                format!("move `{need}` above `{id}`: modules run in the order they are listed")
+            } else {
+                format!("add `- id: {need}` to `modules:` before `{id}`")
+            };
+            diags.push(at(Diagnostic::error("program.yaml", message), ".id").hint(hint));
+            usable = false;
+        }
+
+        match settings {
+            Some(settings) if usable => entries.push(Entry {
+                spec,
+                settings,
+                module,
+                command: def.command.clone(),
+            }),
+            _ => {
+                if !skipped.contains(&def.id) {
+                    broken.insert(def.id.clone());
+                }
+            }
+        }
+    }
+
+    if diags
+        .iter()
+        .any(|d| d.severity == crate::diag::Severity::Error)
+    {
+        Err(diags)
+    } else {
+        Ok((ModuleSet { entries }, diags))
+    }
+}
+
+enum External {
+    Ready(Box<ExternalModule>),
+    Skipped,
+    Broken,
+}
+
+/// Finds an external module and runs its handshake.
+fn external(
+    program: &Program,
+    def: &ModuleDef,
+    command: &[String],
+    builtin_ids: &[String],
+    at: &dyn Fn(Diagnostic, &str) -> Diagnostic,
+    diags: &mut Vec<Diagnostic>,
+) -> External {
+    let id = def.id.as_str();
+    if builtin_ids.iter().any(|b| b == id) {
+        diags.push(
+            at(
+                Diagnostic::error(
+                    "program.yaml",
+                    format!(
+                        "`{id}` is the id of a built-in module; an external module needs its own id"
+                    ),
+                ),
+                ".id",
+            )
+            .hint("remove `command:` to use the built-in module, or rename the external one"),
+        );
+        return External::Broken;
+    }
+    let seconds = def.timeout_seconds.unwrap_or(DEFAULT_TIMEOUT_SECONDS);
+    if !(seconds.is_finite() && seconds > 0.0 && seconds <= 86_400.0) {
+        diags.push(
+            at(
+                Diagnostic::error("program.yaml", format!("bad timeout for module `{id}`")),
+                ".timeout_seconds",
+            )
+            .expected("a number of seconds above 0 and at most 86400")
+            .found(seconds.to_string()),
+        );
+        return External::Broken;
+    }
+    let launch = match Launch::new(id, command, &program.root, Duration::from_secs_f64(seconds)) {
+        Ok(l) => l,
+        Err(e) => {
+            diags.push(at(Diagnostic::error("program.yaml", e), ".command"));
+            return External::Broken;
+        }
+    };
+    match ExternalModule::describe(launch) {
+        Err(CallError::NotFound {
+            program: looked_for,
+        }) => {
+            let written = command.first().map(String::as_str).unwrap_or_default();
+            let found = if written.contains('/') {
+                format!("no file at {looked_for}")
+            } else {
+                format!("no `{written}` on PATH")
+            };
+            if def.optional {
+                diags.push(
+                    at(
+                        Diagnostic::warning(
+                            "program.yaml",
+                            format!(
+                                "external module `{id}` is skipped: program `{written}` was not \
+                                 found (it is marked optional)"
+                            ),
+                        ),
+                        ".command",
+                    )
+                    .found(found),
+                );
+                External::Skipped
+            } else {
+                diags.push(
+                    at(
+                        Diagnostic::error(
+                            "program.yaml",
+                            format!("external module `{id}`: program `{written}` was not found"),
+                        ),
+                        ".command",
+                    )
+                    .found(found)
+                    .hint(format!(
+                        "install it, fix the path in `command` (a path with `/` is relative to \
+                         the program folder; a bare name is looked up on PATH), or set \
+                         `optional: true` on module `{id}` to run without it"
+                    )),
+                );
+                External::Broken
+            }
+        }
+        Err(CallError::Failed(m)) => {
+            diags.push(
+                at(
+                    Diagnostic::error(
+                        "program.yaml",
+                        format!("external module `{id}` failed its handshake: {m}"),
+                    ),
+                    ".command",
+                )
+                .hint("see plugins/PROTOCOL.md for what a module must answer"),
+            );
+            External::Broken
+        }
+        Ok((module, version)) => {
+            if let VersionCheck::MinorDiffers(w) = version {
+                diags.push(at(
+                    Diagnostic::warning("program.yaml", format!("external module `{id}`: {w}")),
+                    ".command",
+                ));
+            }
+            let announced = module.spec().id;
+            if announced != id {
+                diags.push(
+                    at(
+                        Diagnostic::error(
+                            "program.yaml",
+                            format!("external module `{id}` answers with the id `{announced}`"),
+                        ),
+                        ".id",
+                    )
+                    .expected(format!("`{id}`"))
+                    .found(format!("`{announced}`"))
+                    .hint(format!(
+                        "write `id: {announced}` if this is the module you meant, or fix \
+                         `command`"
+                    )),
+                );
+                return External::Broken;
+            }
+            External::Ready(Box::new(module))
+        }
+    }
+}

@@ -1,0 +1,483 @@
+//! Unit tests of the registry and the runner, with small in-process modules written here.
+
+use super::registry::build_with;
+use super::*;
+use crate::diag::{Diagnostic, Severity};
+use crate::program::{Program, ProgramDef};
+use chrono::NaiveDate;
+use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::{
+    MetricModule, ModuleContext, ModuleError, ModuleOutput, ModuleSpec, OutputSpec,
+    ParticipantData, Period, Profile, ProgramInfo, SettingKind, SettingSpec, Sex, Targets,
+    UnitSystem, WeighIn,
+};
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+
+/// What a test module does when asked to compute.
+#[derive(Clone, Copy)]
+enum Act {
+    /// Returns `count` = number of weigh-ins × `factor` setting, plus `seen` = how many earlier
+    /// outputs it was given.
+    Count,
+    /// Fails with a message.
+    Fail,
+    /// Panics.
+    Panic,
+    /// Fails for participant `P2` only.
+    FailForP2,
+}
+
+struct TestModule {
+    id: &'static str,
+    requires: Vec<String>,
+    act: Act,
+}
+
+impl TestModule {
+    fn boxed(id: &'static str, requires: &[&str], act: Act) -> Box<dyn MetricModule> {
+        Box::new(TestModule {
+            id,
+            requires: requires.iter().map(|s| s.to_string()).collect(),
+            act,
+        })
+    }
+}
+
+impl MetricModule for TestModule {
+    fn spec(&self) -> ModuleSpec {
+        ModuleSpec {
+            id: self.id.into(),
+            version: "1.2.3".into(),
+            description: format!("test module {}", self.id),
+            settings: vec![
+                SettingSpec {
+                    name: "factor".into(),
+                    kind: SettingKind::Number,
+                    default: serde_json::json!(1.0),
+                    unit: String::new(),
+                    choices: vec![],
+                    min: Some(0.0),
+                    max: Some(10.0),
+                    description: "multiplies the count".into(),
+                },
+                SettingSpec {
+                    name: "mode".into(),
+                    kind: SettingKind::Text,
+                    default: serde_json::json!("plain"),
+                    unit: String::new(),
+                    choices: vec!["plain".into(), "fancy".into()],
+                    min: None,
+                    max: None,
+                    description: "how to count".into(),
+                },
+            ],
+            outputs: vec![OutputSpec {
+                name: "count".into(),
+                kind: "scalar".into(),
+                unit: String::new(),
+                description: "weigh-ins".into(),
+            }],
+            requires: self.requires.clone(),
+        }
+    }
+
+    fn compute(
+        &self,
+        ctx: &ModuleContext,
+        data: &ParticipantData,
+    ) -> Result<ModuleOutput, ModuleError> {
+        match self.act {
+            Act::Fail => return Err(ModuleError::new("cannot count today")),
+            Act::Panic => panic!("index out of range in {}", self.id),
+            Act::FailForP2 if data.profile.id == "P2" => {
+                return Err(ModuleError::new("P2 is not countable"));
+            }
+            _ => {}
+        }
+        let mut out = ModuleOutput::default();
+        let n = data.weights.len() as f64 * ctx.setting_f64("factor", f64::NAN);
+        out.push_scalar("count", Some(n), "", "count");
+        out.push_scalar(
+            "seen",
+            Some(ctx.earlier.len() as f64),
+            "",
+            "earlier outputs",
+        );
+        Ok(out)
+    }
+}
+
+fn builtins() -> Vec<Box<dyn MetricModule>> {
+    vec![
+        TestModule::boxed("alpha", &[], Act::Count),
+        TestModule::boxed("beta", &["alpha"], Act::Count),
+        TestModule::boxed("failing", &[], Act::Fail),
+        TestModule::boxed("panicky", &[], Act::Panic),
+        TestModule::boxed("picky", &[], Act::FailForP2),
+        TestModule::boxed("gamma", &["picky"], Act::Count),
+    ]
+}
+
+/// A program whose `modules:` section is `modules_yaml`; entry i is said to be on line 10 + i.
+fn program(modules_yaml: &str) -> Program {
+    let text = format!(
+        "format_version: 1\nprogram: {{id: p, title: T, start: 2027-01-01, end: 2027-12-31}}\n\
+         modules:\n{modules_yaml}"
+    );
+    let def: ProgramDef = serde_yaml::from_str(&text).expect("test program parses");
+    let module_lines = (0..def.modules.len()).map(|i| (i, 10 + i as u64)).collect();
+    Program {
+        root: PathBuf::from("."),
+        info: info(),
+        def,
+        module_lines,
+    }
+}
+
+fn info() -> ProgramInfo {
+    ProgramInfo {
+        id: "p".into(),
+        title: "T".into(),
+        start: day(1, 1),
+        end: day(12, 31),
+        units: UnitSystem::Metric,
+        targets: Targets::default(),
+    }
+}
+
+fn day(m: u32, d: u32) -> NaiveDate {
+    NaiveDate::from_ymd_opt(2027, m, d).unwrap()
+}
+
+fn participant(id: &str, weigh_ins: usize) -> ParticipantData {
+    ParticipantData {
+        profile: Profile {
+            id: id.into(),
+            name: None,
+            sex: Sex::Female,
+            birth_date: None,
+            age_years: 40.0,
+            height: Length::from_cm(165.0),
+            enrolled: day(1, 1),
+            withdrew: None,
+            groups: BTreeMap::new(),
+            body_fat_percent: None,
+            targets: Targets::default(),
+            flags: vec![],
+        },
+        weights: (0..weigh_ins)
+            .map(|i| WeighIn {
+                date: day(3, 1 + i as u32),
+                time: None,
+                weight: Mass::from_kg(90.0 - i as f64 * 0.1),
+                source: None,
+            })
+            .collect(),
+        intake: vec![],
+        activity: vec![],
+        sessions: vec![],
+        labs: vec![],
+    }
+}
+
+fn build(yaml: &str) -> Result<(ModuleSet, Vec<Diagnostic>), Vec<Diagnostic>> {
+    build_with(&program(yaml), builtins())
+}
+
+fn errors(diags: &[Diagnostic]) -> Vec<&Diagnostic> {
+    diags
+        .iter()
+        .filter(|d| d.severity == Severity::Error)
+        .collect()
+}
+
+fn run(set: &ModuleSet, p: &ParticipantData) -> ModuleResults {
+    set.run(
+        &info(),
+        Period {
+            from: day(3, 1),
+            to: day(3, 31),
+        },
+        day(4, 2),
+        p,
+    )
+}
+
+#[test]
+fn modules_keep_program_order_and_defaults_are_filled_in() {
+    let (set, warnings) =
+        build("  - id: picky\n  - id: alpha\n    with: {factor: 2.5}\n  - id: beta\n").unwrap();
+    assert!(warnings.is_empty(), "{warnings:?}");
+    assert_eq!(set.ids(), ["picky", "alpha", "beta"]);
+    assert_eq!(
+        set.settings("alpha").unwrap(),
+        &serde_json::json!({"factor": 2.5, "mode": "plain"})
+    );
+    assert_eq!(
+        set.settings("beta").unwrap(),
+        &serde_json::json!({"factor": 1.0, "mode": "plain"})
+    );
+    assert_eq!(set.specs()[2].requires, ["alpha"]);
+}
+
+#[test]
+fn a_requirement_listed_later_is_an_error_naming_both() {
+    let errs = build("  - id: beta\n  - id: alpha\n").unwrap_err();
+    let errs = errors(&errs);
+    assert_eq!(errs.len(), 1, "{errs:?}");
+    assert_eq!(
+        errs[0].message,
+        "module `beta` requires `alpha`, which comes after it in `modules:`"
+    );
+    assert_eq!(errs[0].line, Some(10));
+    assert_eq!(errs[0].field.as_deref(), Some("modules[0].id"));
+    assert!(
+        errs[0]
+            .hint
+            .as_deref()
+            .unwrap()
+            .contains("move `alpha` above `beta`")
+    );
+}
+
+#[test]
+fn a_missing_requirement_is_an_error_with_the_fix() {
+    let errs = build("  - id: picky\n  - id: beta\n").unwrap_err();
+    let errs = errors(&errs);
+    assert_eq!(errs.len(), 1, "{errs:?}");
+    assert_eq!(
+        errs[0].message,
+        "module `beta` requires `alpha`, which is not in `modules:`"
+    );
+    assert_eq!(errs[0].line, Some(11));
+    assert_eq!(
+        errs[0].hint.as_deref(),
+        Some("add `- id: alpha` to `modules:` before `beta`")
+    );
+}
+
+#[test]
+fn every_settings_problem_is_reported_on_its_entry() {
+    let errs =
+        build("  - id: alpha\n  - id: beta\n    with: {factor: 12, mode: loud, colour: red}\n")
+            .unwrap_err();
+    let errs = errors(&errs);
+    assert_eq!(errs.len(), 3, "{errs:?}");
+    for e in &errs {
+        assert_eq!(e.file, "program.yaml");
+        assert_eq!(e.line, Some(11));
+        assert_eq!(e.field.as_deref(), Some("modules[1].with"));
+    }
+    let text: Vec<&str> = errs.iter().map(|e| e.message.as_str()).collect();
+    assert!(
+        text.iter()
+            .any(|m| m.contains("unknown setting `colour` for module `beta`")),
+        "{text:?}"
+    );
+    assert!(
+        text.iter().any(|m| m.contains("12 is outside 0..=10")),
+        "{text:?}"
+    );
+    assert!(
+        text.iter()
+            .any(|m| m.contains("`loud` is not one of: plain, fancy")),
+        "{text:?}"
+    );
+}
+
+#[test]
+fn settings_that_are_not_a_mapping_are_refused() {
+    let errs = build("  - id: alpha\n    with: [1, 2]\n").unwrap_err();
+    assert_eq!(
+        errors(&errs)[0].message,
+        "expected a mapping of settings, found a list"
+    );
+}
+
+#[test]
+fn unknown_and_duplicate_ids_are_errors() {
+    let errs = build("  - id: alpha\n  - id: delta\n  - id: alpha\n").unwrap_err();
+    let errs = errors(&errs);
+    assert_eq!(errs.len(), 2, "{errs:?}");
+    assert_eq!(errs[0].message, "unknown module `delta`");
+    assert!(
+        errs[0]
+            .expected
+            .as_deref()
+            .unwrap()
+            .contains("alpha, beta, failing")
+    );
+    assert!(errs[0].hint.as_deref().unwrap().contains("`command:`"));
+    assert_eq!(errs[1].message, "module `alpha` is listed twice");
+    assert_eq!(errs[1].found.as_deref(), Some("entries 1 and 3"));
+}
+
+#[test]
+fn a_builtin_with_external_keys_only_warns() {
+    let (set, warnings) = build("  - id: alpha\n    timeout_seconds: 5\n").unwrap();
+    assert_eq!(set.ids(), ["alpha"]);
+    assert_eq!(warnings.len(), 1);
+    assert!(
+        warnings[0]
+            .message
+            .contains("ignored for the built-in module `alpha`")
+    );
+}
+
+#[test]
+fn an_external_module_cannot_take_a_builtin_id() {
+    let errs = build("  - id: alpha\n    command: [./alpha.py]\n").unwrap_err();
+    assert!(
+        errors(&errs)[0]
+            .message
+            .contains("is the id of a built-in module")
+    );
+}
+
+#[test]
+fn a_missing_external_program_is_an_error_unless_optional() {
+    let errs = build("  - id: extra\n    command: [./no-such-module.py]\n").unwrap_err();
+    let errs = errors(&errs);
+    assert_eq!(
+        errs[0].message,
+        "external module `extra`: program `./no-such-module.py` was not found"
+    );
+    let hint = errs[0].hint.as_deref().unwrap();
+    assert!(
+        hint.contains("install it") && hint.contains("optional: true"),
+        "{hint}"
+    );
+
+    let (set, warnings) = build(
+        "  - id: alpha\n  - id: extra\n    command: [./no-such-module.py]\n    optional: true\n",
+    )
+    .unwrap();
+    assert_eq!(set.ids(), ["alpha"]);
+    assert_eq!(warnings.len(), 1);
+    assert!(
+        warnings[0].message.contains("`extra` is skipped"),
+        "{:?}",
+        warnings[0]
+    );
+    assert_eq!(warnings[0].line, Some(11));
+}
+
+#[test]
+fn each_module_sees_the_outputs_before_it() {
+    let (set, _) = build("  - id: alpha\n    with: {factor: 3}\n  - id: beta\n").unwrap();
+    let r = run(&set, &participant("P1", 4));
+    assert!(r.failures.is_empty(), "{:?}", r.failures);
+    assert_eq!(r.output("alpha").unwrap().scalar("count"), Some(12.0));
+    assert_eq!(r.output("alpha").unwrap().scalar("seen"), Some(0.0));
+    assert_eq!(r.output("beta").unwrap().scalar("count"), Some(4.0));
+    assert_eq!(r.output("beta").unwrap().scalar("seen"), Some(1.0));
+    let order: Vec<&str> = r.outputs.iter().map(|(id, _)| id.as_str()).collect();
+    assert_eq!(order, ["alpha", "beta"]);
+}
+
+#[test]
+fn failures_and_panics_are_contained_to_their_module() {
+    let (set, _) =
+        build("  - id: failing\n  - id: panicky\n  - id: alpha\n  - id: beta\n").unwrap();
+    let r = run(&set, &participant("P1", 2));
+    assert_eq!(
+        r.failures,
+        vec![
+            ModuleFailure {
+                module: "failing".into(),
+                message: "cannot count today".into()
+            },
+            ModuleFailure {
+                module: "panicky".into(),
+                message:
+                    "internal error in the module (it panicked: index out of range in panicky)"
+                        .into()
+            },
+        ]
+    );
+    assert_eq!(r.output("beta").unwrap().scalar("count"), Some(2.0));
+}
+
+#[test]
+fn a_failure_for_one_participant_skips_its_dependants_for_that_participant_only() {
+    let (set, _) = build("  - id: picky\n  - id: gamma\n  - id: alpha\n").unwrap();
+    let p1 = run(&set, &participant("P1", 3));
+    assert!(p1.failures.is_empty());
+    assert_eq!(p1.output("gamma").unwrap().scalar("count"), Some(3.0));
+
+    let p2 = run(&set, &participant("P2", 3));
+    assert_eq!(
+        p2.failures,
+        vec![
+            ModuleFailure {
+                module: "picky".into(),
+                message: "P2 is not countable".into()
+            },
+            ModuleFailure {
+                module: "gamma".into(),
+                message: "skipped: needs picky".into()
+            },
+        ]
+    );
+    assert_eq!(p2.output("alpha").unwrap().scalar("count"), Some(3.0));
+}
+
+#[test]
+fn the_fingerprint_changes_with_settings_and_order_only() {
+    let fp = |y: &str| build(y).unwrap().0.settings_fingerprint();
+    let a = fp("  - id: alpha\n    with: {mode: plain, factor: 2}\n  - id: picky\n");
+    assert_eq!(
+        a,
+        "alpha 1.2.3 builtin {\"factor\":2,\"mode\":\"plain\"}\n\
+         picky 1.2.3 builtin {\"factor\":1.0,\"mode\":\"plain\"}\n"
+    );
+    // Writing a default explicitly or in another key order changes nothing …
+    assert_eq!(
+        a,
+        fp("  - id: alpha\n    with: {factor: 2}\n  - id: picky\n    with: {mode: plain}\n")
+    );
+    // … a different value or order does.
+    assert_ne!(
+        a,
+        fp("  - id: alpha\n    with: {factor: 3}\n  - id: picky\n")
+    );
+    assert_ne!(
+        a,
+        fp("  - id: picky\n  - id: alpha\n    with: {factor: 2}\n")
+    );
+}
+
+#[test]
+fn the_listing_names_settings_with_units_and_ranges() {
+    let text = describe_modules(None);
+    assert!(text.starts_with("Built-in modules\n"));
+    for m in builtin_modules() {
+        let spec = m.spec();
+        assert!(
+            text.contains(&format!("\n{} {}", spec.id, spec.version)),
+            "{}",
+            spec.id
+        );
+        for s in &spec.settings {
+            assert!(text.contains(&format!("    {}: ", s.name)), "{}", s.name);
+        }
+    }
+}
+
+#[test]
+fn builtin_ids_are_unique_and_requirements_come_first() {
+    let mut seen: Vec<String> = Vec::new();
+    for m in builtin_modules() {
+        let spec = m.spec();
+        for r in &spec.requires {
+            assert!(
+                seen.contains(r),
+                "{} requires {r}, listed after it",
+                spec.id
+            );
+        }
+        assert!(!seen.contains(&spec.id));
+        seen.push(spec.id);
+    }
+}
