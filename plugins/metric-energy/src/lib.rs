@@ -1,1 +1,302 @@
-//! placeholder
+//! The built-in `energy` metric module of cohortpress: energy expenditure, the energy balance
+//! actually achieved, and what it would take to change it.
+//!
+//! For one participant it computes resting energy by a published equation (selectable), activity
+//! energy from MET values (2011 Compendium), total expenditure, the intake implied by the weight
+//! trend through a dynamic body-weight model (Hall et al. 2011, Hall & Chow 2011) rather than the
+//! static 7700 kcal/kg rule, the gap between logged and implied intake, a forecast of the
+//! trajectory and its steady state, a reading of each plateau (expected slowdown or intake
+//! drift), and the change in intake or walking minutes that would restore a chosen rate of loss.
+//!
+//! The formulas live in [`equations`] (static equations) and [`dynamics`] (body-weight
+//! dynamics); [`EnergyModule`] ties them to the participant's data and to the output of the
+//! `trend` module. Nothing here is medical advice: the outputs are estimates for a program team,
+//! and low intakes are flagged for review by a licensed clinician.
+
+pub mod dynamics;
+pub mod equations;
+
+mod compute;
+
+pub use dynamics::{HallModel, HallState, LinearisedModel};
+pub use equations::{
+    RestingEquation, activity_kcal_gross, activity_kcal_net, cunningham, harris_benedict_revised,
+    henry, jackson_2002_body_fat, katch_mcardle, mifflin_st_jeor,
+};
+
+use cohortpress_metric_api::{
+    MetricModule, ModuleContext, ModuleError, ModuleOutput, ModuleSpec, OutputSpec,
+    ParticipantData, SettingKind, SettingSpec,
+};
+use serde_json::json;
+
+/// The built-in `energy` module (see the crate docs).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct EnergyModule;
+
+fn number(
+    name: &str,
+    default: f64,
+    unit: &str,
+    min: f64,
+    max: f64,
+    description: &str,
+) -> SettingSpec {
+    SettingSpec {
+        name: name.into(),
+        kind: SettingKind::Number,
+        default: json!(default),
+        unit: unit.into(),
+        choices: vec![],
+        min: Some(min),
+        max: Some(max),
+        description: description.into(),
+    }
+}
+
+fn out(name: &str, kind: &str, unit: &str, description: &str) -> OutputSpec {
+    OutputSpec {
+        name: name.into(),
+        kind: kind.into(),
+        unit: unit.into(),
+        description: description.into(),
+    }
+}
+
+impl MetricModule for EnergyModule {
+    fn spec(&self) -> ModuleSpec {
+        let settings = vec![
+            SettingSpec {
+                name: "equation".into(),
+                kind: SettingKind::Text,
+                default: json!("mifflin_st_jeor"),
+                unit: String::new(),
+                choices: RestingEquation::ALL
+                    .iter()
+                    .map(|e| e.code().to_string())
+                    .collect(),
+                min: None,
+                max: None,
+                description: "Resting energy equation; katch_mcardle and cunningham need a \
+                              measured body_fat_percent and otherwise fall back to mifflin_st_jeor"
+                    .into(),
+            },
+            number(
+                "base_pal",
+                1.4,
+                "",
+                1.0,
+                2.5,
+                "Physical activity level (TEE/RMR) before logged exercise; 1.4 is the lower \
+                 bound of FAO/WHO/UNU 2004 'sedentary or light'",
+            ),
+            SettingSpec {
+                name: "window_days".into(),
+                kind: SettingKind::Integer,
+                default: json!(28),
+                unit: "d".into(),
+                choices: vec![],
+                min: Some(7.0),
+                max: Some(180.0),
+                description: "Days at the end of the period whose trend slope gives the implied \
+                              intake (28 = four whole weeks)"
+                    .into(),
+            },
+            number(
+                "target_loss_kg_per_week",
+                0.5,
+                "kg/wk",
+                0.0,
+                2.0,
+                "Rate of loss the 'what it takes' options aim for",
+            ),
+            number(
+                "max_safe_loss_kg_per_week",
+                1.0,
+                "kg/wk",
+                0.1,
+                2.0,
+                "Fastest rate the options will propose (NIH/NHLBI 1998: 0.5–1 kg per week)",
+            ),
+            number(
+                "intake_floor_female",
+                1200.0,
+                "kcal/d",
+                800.0,
+                3000.0,
+                "Lowest intake proposed for women without clinical supervision (common practice)",
+            ),
+            number(
+                "intake_floor_male",
+                1500.0,
+                "kcal/d",
+                800.0,
+                3000.0,
+                "Lowest intake proposed for men without clinical supervision (common practice)",
+            ),
+            number(
+                "drift_threshold_kcal_per_day",
+                150.0,
+                "kcal/d",
+                0.0,
+                1000.0,
+                "Rise in implied intake from before to during a plateau that counts as intake drift",
+            ),
+            number(
+                "walking_met",
+                3.5,
+                "MET",
+                2.0,
+                8.0,
+                "MET of the walking option (3.5 = 2.8–3.2 mph, Compendium 2011 code 17190)",
+            ),
+        ];
+        let outputs = vec![
+            out(
+                "rmr_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "Resting energy at the current weight",
+            ),
+            out(
+                "activity_net_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "Logged activity net of resting, mean over the period's days",
+            ),
+            out(
+                "tdee_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "RMR × base_pal + net activity",
+            ),
+            out(
+                "logged_intake_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "Mean logged intake over logged days (missing with fewer than 4)",
+            ),
+            out(
+                "logged_days",
+                "scalar",
+                "d",
+                "Days with an intake log in the period",
+            ),
+            out(
+                "implied_intake_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "Intake implied by the weight trend (Hall & Chow 2011), 95 % interval",
+            ),
+            out(
+                "intake_gap_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "Implied minus logged intake (positive = more eaten than logged)",
+            ),
+            out(
+                "energy_balance_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "Implied intake minus expenditure at the current weight",
+            ),
+            out(
+                "forecast_weight_at_end_kg",
+                "scalar",
+                "kg",
+                "Model weight at program end with the implied intake held",
+            ),
+            out(
+                "steady_state_weight_kg",
+                "scalar",
+                "kg",
+                "Weight at which the model comes to rest with the implied intake held",
+            ),
+            out(
+                "body_fat_percent_baseline",
+                "scalar",
+                "%",
+                "Baseline body fat seeding the model",
+            ),
+            out("rmr_equation", "text", "", "Resting energy equation used"),
+            out(
+                "body_fat_source",
+                "text",
+                "",
+                "`measured` or the equation that estimated it",
+            ),
+            out(
+                "forecast_weight",
+                "series",
+                "kg",
+                "Daily model forecast to program end",
+            ),
+            out(
+                "weekly_energy",
+                "table",
+                "",
+                "Expenditure, logged and implied intake by week",
+            ),
+            out(
+                "options",
+                "table",
+                "",
+                "Change in intake or walking that restores the target",
+            ),
+            out(
+                "plateau_assessment",
+                "table",
+                "",
+                "Expected slowdown or intake drift, per plateau",
+            ),
+            out(
+                "insufficient_data",
+                "flag",
+                "",
+                "Too few data for part of the computation",
+            ),
+            out(
+                "equation_fallback",
+                "flag",
+                "",
+                "Lean-mass equation without body fat",
+            ),
+            out(
+                "logs_inconsistent_with_trend",
+                "flag",
+                "",
+                "Logged intake far from implied",
+            ),
+            out(
+                "low_logged_intake",
+                "flag",
+                "",
+                "Logged intake below the intake floor",
+            ),
+        ];
+        ModuleSpec {
+            id: "energy".into(),
+            version: env!("CARGO_PKG_VERSION").into(),
+            description: "Resting energy by a selectable published equation (Mifflin–St Jeor \
+                          1990, Harris–Benedict revised 1984, Katch–McArdle, Cunningham 1980, \
+                          Henry 2005), activity energy from 2011 Compendium MET values, total \
+                          expenditure, the intake implied by the weight trend through the Hall \
+                          et al. 2011 dynamic model and the Hall & Chow 2011 estimator, the gap \
+                          to logged intake, a forecast with its steady state, plateau \
+                          assessment, and the intake or walking change that would restore a \
+                          chosen rate of loss."
+                .into(),
+            settings,
+            outputs,
+            requires: vec!["trend".into()],
+        }
+    }
+
+    fn compute(
+        &self,
+        ctx: &ModuleContext,
+        data: &ParticipantData,
+    ) -> Result<ModuleOutput, ModuleError> {
+        compute::run(ctx, data)
+    }
+}

@@ -1,0 +1,606 @@
+//! Tests of `compute()` on synthetic participants whose weights come from the Hall model itself
+//! with a known intake, so the right answers are known.
+
+use super::*;
+use crate::EnergyModule;
+use crate::equations::mifflin_st_jeor;
+use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::{
+    ActivityEntry, IntakeDay, MetricModule, Period, Profile, ProgramInfo, Targets, UnitSystem,
+    WeighIn,
+};
+
+fn d(s: &str) -> NaiveDate {
+    NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
+}
+
+fn profile(sex: Sex, height_cm: f64, age: f64, enrolled: NaiveDate) -> Profile {
+    Profile {
+        id: "P-1".into(),
+        name: None,
+        sex,
+        birth_date: None,
+        age_years: age,
+        height: Length::from_cm(height_cm),
+        enrolled,
+        withdrew: None,
+        groups: Default::default(),
+        body_fat_percent: None,
+        targets: Targets::default(),
+        flags: vec![],
+    }
+}
+
+fn data(profile: Profile) -> ParticipantData {
+    ParticipantData {
+        profile,
+        weights: vec![],
+        intake: vec![],
+        activity: vec![],
+        sessions: vec![],
+        labs: vec![],
+    }
+}
+
+fn ctx(
+    start: NaiveDate,
+    end: NaiveDate,
+    period: Period,
+    settings: serde_json::Value,
+) -> ModuleContext {
+    let spec = EnergyModule.spec();
+    ModuleContext {
+        program: ProgramInfo {
+            id: "demo".into(),
+            title: "Demo".into(),
+            start,
+            end,
+            units: UnitSystem::Metric,
+            targets: Targets::default(),
+        },
+        period,
+        as_of: period.to,
+        settings: spec.resolve_settings(&settings).unwrap(),
+        earlier: BTreeMap::new(),
+    }
+}
+
+/// The module's own baseline model for a man of 100 kg, 180 cm, 40 y with base_pal 1.4
+/// (Mifflin–St Jeor, Jackson 2002 body fat), built independently here.
+fn man_model() -> HallModel {
+    let bmi = 100.0 / (1.8 * 1.8);
+    let bf = jackson_2002_body_fat(Sex::Male, bmi, 40.0);
+    // At 100 kg the fat mass in kg equals the body-fat percentage.
+    HallModel::new(
+        100.0,
+        bf,
+        mifflin_st_jeor(Sex::Male, 100.0, 180.0, 40.0),
+        1.4,
+    )
+}
+
+/// A synthetic `trend` output: daily levels and slopes of the true trajectory with fixed
+/// half-widths, and the given periods rows (kind, start, end, slope kg/wk, weight_start).
+fn trend_output(
+    start: NaiveDate,
+    weights: &[f64],
+    level_hw: f64,
+    slope_hw: f64,
+    periods: &[(&str, NaiveDate, NaiveDate, f64, f64)],
+) -> ModuleOutput {
+    let mut out = ModuleOutput::default();
+    let level = weights
+        .iter()
+        .enumerate()
+        .map(|(i, w)| Point {
+            date: day_after(start, i as u64),
+            value: *w,
+            lower: Some(w - level_hw),
+            upper: Some(w + level_hw),
+        })
+        .collect();
+    let slope = (0..weights.len())
+        .map(|i| {
+            let a = weights[i.saturating_sub(1)];
+            let b = weights[(i + 1).min(weights.len() - 1)];
+            let span = ((i + 1).min(weights.len() - 1) - i.saturating_sub(1)) as f64;
+            let v = (b - a) / span;
+            Point {
+                date: day_after(start, i as u64),
+                value: v,
+                lower: Some(v - slope_hw),
+                upper: Some(v + slope_hw),
+            }
+        })
+        .collect();
+    for (name, unit, points) in [
+        ("weight_trend", "kg", level),
+        ("weight_slope", "kg/d", slope),
+    ] {
+        out.series.push(Series {
+            name: name.into(),
+            unit: unit.into(),
+            step: "daily".into(),
+            label: name.into(),
+            points,
+        });
+    }
+    let names = [
+        "kind",
+        "start",
+        "end",
+        "days",
+        "slope_kg_per_week",
+        "slope_lower_kg_per_week",
+        "slope_upper_kg_per_week",
+        "weight_start_kg",
+        "weight_end_kg",
+    ];
+    out.tables.push(Table {
+        name: "periods".into(),
+        label: "periods".into(),
+        columns: names.iter().map(|n| col(n, "", n)).collect(),
+        rows: periods
+            .iter()
+            .map(|(k, s, e, sl, ws)| {
+                vec![
+                    text(*k),
+                    text(s.to_string()),
+                    text(e.to_string()),
+                    Cell::Number(days_incl(*s, *e) as f64),
+                    Cell::Number(*sl),
+                    Cell::Number(sl - 0.1),
+                    Cell::Number(sl + 0.1),
+                    Cell::Number(*ws),
+                    Cell::Empty,
+                ]
+            })
+            .collect(),
+    });
+    out
+}
+
+fn cell_num(t: &Table, row: usize, col: &str) -> Option<f64> {
+    let i = t.columns.iter().position(|c| c.name == col).unwrap();
+    match &t.rows[row][i] {
+        Cell::Number(x) => Some(*x),
+        _ => None,
+    }
+}
+
+fn cell_text<'a>(t: &'a Table, row: usize, col: &str) -> &'a str {
+    let i = t.columns.iter().position(|c| c.name == col).unwrap();
+    match &t.rows[row][i] {
+        Cell::Text(s) => s,
+        other => panic!("expected text in {col}, found {other:?}"),
+    }
+}
+
+#[test]
+fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
+    let enrolled = d("2027-01-04");
+    let end = d("2027-07-04");
+    let period = Period {
+        from: d("2027-04-01"),
+        to: d("2027-04-30"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let model = man_model();
+    let true_intake = model.ei0 - 500.0;
+    let all = model.simulate_constant(400, true_intake, 0.0);
+    let weights = &all[..n];
+
+    let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
+    data.weights = (0..n)
+        .step_by(3)
+        .map(|i| WeighIn {
+            date: day_after(enrolled, i as u64),
+            time: None,
+            weight: Mass::from_kg(weights[i]),
+            source: None,
+        })
+        .collect();
+    // Logs that under-count by 400 kcal/d on 20 days of the period.
+    data.intake = (0..20)
+        .map(|i| IntakeDay {
+            date: day_after(period.from, i),
+            kcal: true_intake - 400.0,
+            carbs_g: None,
+            fat_g: None,
+            protein_g: None,
+            free_sugars_g: None,
+        })
+        .collect();
+    let mut c = ctx(enrolled, end, period, serde_json::Value::Null);
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, weights, 0.4, 0.005, &[]),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+
+    // Texts and baseline.
+    assert_eq!(out.text("rmr_equation"), Some("mifflin_st_jeor"));
+    assert_eq!(out.text("body_fat_source"), Some("jackson_2002"));
+    let bf = out.scalar("body_fat_percent_baseline").unwrap();
+    assert!((bf - model.fm0).abs() < 1e-9, "{bf}"); // fm0 == bf% at 100 kg
+
+    // RMR and TDEE at the current weight and age (Mifflin, integer form).
+    let w_now = weights[n - 1];
+    let age_now = data.profile.age_on(period.to);
+    let rmr = mifflin_st_jeor(Sex::Male, w_now, 180.0, age_now);
+    assert!((out.scalar("rmr_kcal_per_day").unwrap() - rmr).abs() < 1e-9);
+    assert!((out.scalar("tdee_kcal_per_day").unwrap() - 1.4 * rmr).abs() < 1e-9);
+    assert_eq!(out.scalar("activity_net_kcal_per_day"), Some(0.0));
+
+    // Implied intake: the linearised estimator on the nonlinear model's own trajectory, ~5 kg
+    // down, is within 30 kcal/d of the truth, and its interval contains the truth.
+    let imp = out.scalar_full("implied_intake_kcal_per_day").unwrap();
+    let v = imp.value.unwrap();
+    assert!(
+        (v - true_intake).abs() < 30.0,
+        "implied {v} vs true {true_intake}"
+    );
+    assert!(imp.lower.unwrap() < true_intake && true_intake < imp.upper.unwrap());
+    // Interval half-width = ρ × 0.005 kg/d.
+    let lin = LinearisedModel::from_baseline(100.0, model.fm0, model.rmr0, 1.4);
+    assert!((imp.upper.unwrap() - v - lin.rho * 0.005).abs() < 1e-6);
+
+    // Logged intake, gap (positive: more eaten than logged) and its flag.
+    assert_eq!(out.scalar("logged_days"), Some(20.0));
+    assert!(
+        (out.scalar("logged_intake_kcal_per_day").unwrap() - (true_intake - 400.0)).abs() < 1e-9
+    );
+    let gap = out.scalar("intake_gap_kcal_per_day").unwrap();
+    assert!((gap - 400.0).abs() < 30.0, "gap {gap}");
+    assert!(
+        out.flags
+            .iter()
+            .any(|f| f.code == "logs_inconsistent_with_trend")
+    );
+    let balance = out.scalar("energy_balance_kcal_per_day").unwrap();
+    assert!((balance - (v - 1.4 * rmr)).abs() < 1e-9);
+
+    // Forecast: continuing the true run to program end within 0.3 kg, band ordered.
+    let h = (end - period.to).num_days() as usize;
+    let f = out.scalar_full("forecast_weight_at_end_kg").unwrap();
+    let truth = all[n - 1 + h];
+    assert!(
+        (f.value.unwrap() - truth).abs() < 0.3,
+        "forecast {:?} vs {truth}",
+        f.value
+    );
+    assert!(f.lower.unwrap() < f.value.unwrap() && f.value.unwrap() < f.upper.unwrap());
+    let series = out.series("forecast_weight").unwrap();
+    assert_eq!(series.points.len(), h + 1);
+    assert_eq!(series.points[0].date, period.to);
+    assert_eq!(series.points.last().unwrap().date, end);
+    // Steady state: the model's own steady state for the true intake, within 1 kg.
+    let ss_true = model.steady_state_weight(true_intake, 0.0).unwrap();
+    let ss = out.scalar("steady_state_weight_kg").unwrap();
+    assert!((ss - ss_true).abs() < 1.0, "steady {ss} vs {ss_true}");
+
+    // Weekly table: 17 weeks from 2027-01-04 to 2027-04-30. The linearised estimator assumes
+    // adaptive thermogenesis has settled (τ_AT = 14 d), so in the first weeks it reads the
+    // faster early loss as a lower intake; from week 4 on it is within 40 kcal/d of the truth.
+    let wk = out.table("weekly_energy").unwrap();
+    assert_eq!(wk.rows.len(), 17);
+    assert_eq!(cell_text(wk, 0, "week_start"), "2027-01-04");
+    for r in 1..wk.rows.len() {
+        let i = cell_num(wk, r, "implied_intake_kcal_per_day").unwrap();
+        let tol = if r >= 3 { 40.0 } else { 100.0 };
+        assert!((i - true_intake).abs() < tol, "week {r}: {i}");
+        assert!(cell_num(wk, r, "expenditure_kcal_per_day").unwrap() > 2000.0);
+    }
+    assert_eq!(cell_num(wk, 0, "logged_intake_kcal_per_day"), None);
+    assert!(cell_num(wk, 12, "logged_intake_kcal_per_day").is_some());
+
+    // Options: the current rate is slower than 0.5 kg/week, so both options ask for a change.
+    let opt = out.table("options").unwrap();
+    assert_eq!(cell_text(opt, 0, "kind"), "intake");
+    assert_eq!(cell_text(opt, 1, "kind"), "walking");
+    let cut = cell_num(opt, 0, "change_per_day").unwrap();
+    let slope_now = (weights[n - 1] - weights[n - 29]) / 28.0;
+    assert!(slope_now > -0.5 / 7.0);
+    // ΔEI = ρ·(s* − s) within the slope's averaging error.
+    assert!(
+        (cut - lin.rho * (-0.5 / 7.0 - slope_now)).abs() < 15.0,
+        "cut {cut}"
+    );
+    assert_eq!(cell_text(opt, 0, "feasible"), "yes");
+    let minutes = cell_num(opt, 1, "change_per_day").unwrap();
+    let expect_min = (1.0 - BETA) * -cut / (2.5 * w_now / 60.0);
+    assert!(
+        (minutes - expect_min).abs() < 0.5,
+        "{minutes} vs {expect_min}"
+    );
+    assert_eq!(cell_text(opt, 1, "unit"), "min/d");
+    assert_eq!(cell_text(opt, 1, "feasible"), "yes");
+    assert!(out.table("plateau_assessment").unwrap().rows.is_empty());
+}
+
+#[test]
+fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-02-01"),
+        to: d("2027-02-28"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    // A woman of 60 kg at maintenance: her implied intake is low, so a 0.9 kg/week target
+    // would need an intake below 1200 kcal/d.
+    let mut data = data(profile(Sex::Female, 160.0, 60.0, enrolled));
+    data.weights = vec![WeighIn {
+        date: enrolled,
+        time: None,
+        weight: Mass::from_kg(60.0),
+        source: None,
+    }];
+    let weights = vec![60.0; n];
+    let mut c = ctx(
+        enrolled,
+        d("2027-06-30"),
+        period,
+        serde_json::json!({"target_loss_kg_per_week": 0.9}),
+    );
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, &weights, 0.4, 0.01, &[]),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let opt = out.table("options").unwrap();
+    assert_eq!(cell_text(opt, 0, "feasible"), "no");
+    assert!(cell_text(opt, 0, "reason").contains("below 1200"));
+    assert!(cell_num(opt, 0, "resulting_intake_kcal_per_day").unwrap() < 1200.0);
+    // Walking 0.9 kg/week at 60 kg would take far more than two hours a day.
+    assert_eq!(cell_text(opt, 1, "feasible"), "no");
+    assert!(cell_num(opt, 1, "change_per_day").unwrap() > 120.0);
+
+    // A target above the safe maximum is refused whatever the numbers.
+    c.settings = EnergyModule
+        .spec()
+        .resolve_settings(&serde_json::json!({"target_loss_kg_per_week": 1.2}))
+        .unwrap();
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let opt = out.table("options").unwrap();
+    for r in 0..2 {
+        assert_eq!(cell_text(opt, r, "feasible"), "no");
+        assert!(cell_text(opt, r, "reason").contains("NIH/NHLBI 1998"));
+    }
+    // Weight stable at baseline: the implied intake is the baseline maintenance intake.
+    let ei0 = mifflin_st_jeor(Sex::Female, 60.0, 160.0, 60.0) * 1.4;
+    let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!((imp - ei0).abs() < 1.0, "{imp} vs {ei0}");
+}
+
+#[test]
+fn plateau_from_intake_drift_is_told_apart_from_the_expected_slowdown() {
+    let enrolled = d("2027-01-04");
+    let model = man_model();
+    // 100 days at −500 kcal/d, then intake drifts up by 400 kcal/d for 40 days.
+    let intake = |day: usize| {
+        if day < 100 {
+            model.ei0 - 500.0
+        } else {
+            model.ei0 - 100.0
+        }
+    };
+    let w = model.simulate(139, intake, |_| 0.0);
+    let to = day_after(enrolled, 139);
+    // The trend dates the plateau's onset at the day the intake changed.
+    let pstart = day_after(enrolled, 100);
+    let slope_wk = (w[139] - w[100]) / 39.0 * 7.0;
+    let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
+    data.weights = vec![WeighIn {
+        date: enrolled,
+        time: None,
+        weight: Mass::from_kg(100.0),
+        source: None,
+    }];
+    let mut c = ctx(
+        enrolled,
+        d("2027-12-31"),
+        Period {
+            from: d("2027-05-01"),
+            to,
+        },
+        serde_json::Value::Null,
+    );
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(
+            enrolled,
+            &w,
+            0.4,
+            0.005,
+            &[
+                ("loss", enrolled, day_before(pstart, 1), -3.0, 100.0),
+                ("plateau", pstart, to, slope_wk, w[100]),
+            ],
+        ),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let t = out.table("plateau_assessment").unwrap();
+    assert_eq!(t.rows.len(), 1);
+    assert_eq!(
+        cell_text(t, 0, "classification"),
+        "intake_drift",
+        "{}",
+        cell_text(t, 0, "evidence")
+    );
+    let before = cell_num(t, 0, "implied_intake_before_kcal_per_day").unwrap();
+    let during = cell_num(t, 0, "implied_intake_during_kcal_per_day").unwrap();
+    // The drift was +400 kcal/d; the estimator sees most of it (AT lags by τ = 14 d).
+    assert!(
+        (during - before - 400.0).abs() < 60.0,
+        "{before} → {during}"
+    );
+    assert!(
+        (before - (model.ei0 - 500.0)).abs() < 40.0,
+        "{before} vs {}",
+        model.ei0 - 500.0
+    );
+
+    // Three years at −500 kcal/d: the model itself levels off; a plateau then is expected.
+    let w = model.simulate_constant(1200, model.ei0 - 500.0, 0.0);
+    let to = day_after(enrolled, 1200);
+    let pstart = day_after(enrolled, 1100);
+    let slope_wk = (w[1200] - w[1100]) / 100.0 * 7.0;
+    let mut c = ctx(
+        enrolled,
+        d("2031-12-31"),
+        Period {
+            from: day_before(to, 30),
+            to,
+        },
+        serde_json::Value::Null,
+    );
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(
+            enrolled,
+            &w,
+            0.4,
+            0.005,
+            &[("plateau", pstart, to, slope_wk, w[1100])],
+        ),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let t = out.table("plateau_assessment").unwrap();
+    assert_eq!(
+        cell_text(t, 0, "classification"),
+        "expected_slowdown",
+        "{}",
+        cell_text(t, 0, "evidence")
+    );
+    let expected = cell_num(t, 0, "expected_slope_kg_per_week").unwrap();
+    assert!(
+        (expected - slope_wk).abs() < 0.05,
+        "{expected} vs {slope_wk}"
+    );
+}
+
+#[test]
+fn without_trend_output_a_straight_line_fit_is_used_and_flagged() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let model = man_model();
+    let w = model.simulate_constant(90, model.ei0 - 500.0, 0.0);
+    let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
+    data.weights = (0..=86)
+        .map(|i| WeighIn {
+            date: day_after(enrolled, i),
+            time: None,
+            weight: Mass::from_kg(w[i as usize]),
+            source: None,
+        })
+        .collect();
+    let c = ctx(enrolled, d("2027-06-30"), period, serde_json::Value::Null);
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    assert!(out.flags.iter().any(|f| f.code == "insufficient_data"));
+    let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!((imp - (model.ei0 - 500.0)).abs() < 40.0, "{imp}");
+}
+
+#[test]
+fn no_weigh_ins_gives_missing_values_not_an_error() {
+    let enrolled = d("2027-01-04");
+    let c = ctx(
+        enrolled,
+        d("2027-06-30"),
+        Period {
+            from: enrolled,
+            to: d("2027-01-31"),
+        },
+        serde_json::Value::Null,
+    );
+    let out = EnergyModule
+        .compute(&c, &data(profile(Sex::Female, 165.0, 35.0, enrolled)))
+        .unwrap();
+    assert_eq!(out.scalar("rmr_kcal_per_day"), None);
+    assert!(out.scalar_full("implied_intake_kcal_per_day").is_some());
+    assert!(out.table("options").is_some());
+    assert!(out.flags.iter().any(|f| f.code == "insufficient_data"));
+}
+
+#[test]
+fn lean_mass_equation_without_body_fat_falls_back_and_says_so() {
+    let enrolled = d("2027-01-04");
+    let mut data = data(profile(Sex::Female, 165.0, 35.0, enrolled));
+    data.weights = vec![WeighIn {
+        date: enrolled,
+        time: None,
+        weight: Mass::from_kg(65.0),
+        source: None,
+    }];
+    let period = Period {
+        from: enrolled,
+        to: d("2027-01-31"),
+    };
+    let c = ctx(
+        enrolled,
+        d("2027-06-30"),
+        period,
+        serde_json::json!({"equation": "katch_mcardle"}),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    assert_eq!(out.text("rmr_equation"), Some("mifflin_st_jeor"));
+    assert!(
+        out.flags
+            .iter()
+            .any(|f| f.code == "equation_fallback" && f.severity == FlagSeverity::Info)
+    );
+    // With a measured body fat the lean-mass equation is used: 65 kg at 30 % → LBM 45.5 kg.
+    data.profile.body_fat_percent = Some(30.0);
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    assert_eq!(out.text("rmr_equation"), Some("katch_mcardle"));
+    assert_eq!(out.text("body_fat_source"), Some("measured"));
+    let rmr = out.scalar("rmr_kcal_per_day").unwrap();
+    assert!((rmr - (370.0 + 21.6 * 45.5)).abs() < 1e-6, "{rmr}");
+}
+
+#[test]
+fn activity_is_counted_net_of_rest_and_raises_the_implied_intake() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-02-01"),
+        to: d("2027-02-28"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
+    data.weights = vec![WeighIn {
+        date: enrolled,
+        time: None,
+        weight: Mass::from_kg(85.0),
+        source: None,
+    }];
+    let weights = vec![85.0; n];
+    let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::Value::Null);
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, &weights, 0.4, 0.005, &[]),
+    );
+    let base = EnergyModule.compute(&c, &data).unwrap();
+    // One hour of walking at 3.5 MET (Compendium 2011 code 17190) every day of February.
+    data.activity = (0..28)
+        .map(|i| ActivityEntry {
+            date: day_after(period.from, i),
+            activity: "17190".into(),
+            minutes: 60.0,
+            met: 3.5,
+            met_source: "Compendium 2011 code 17190".into(),
+            steps: None,
+        })
+        .collect();
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    // (3.5 − 1) × 85 kg × 1 h = 212.5 kcal/d net.
+    assert!((out.scalar("activity_net_kcal_per_day").unwrap() - 212.5).abs() < 1e-9);
+    let dt = out.scalar("tdee_kcal_per_day").unwrap() - base.scalar("tdee_kcal_per_day").unwrap();
+    assert!((dt - 212.5).abs() < 1e-9);
+    // Weight held steady while walking means more was eaten: 212.5/(1 − β) more.
+    let di = out.scalar("implied_intake_kcal_per_day").unwrap()
+        - base.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!((di - 212.5 / (1.0 - BETA)).abs() < 1e-6, "{di}");
+}
