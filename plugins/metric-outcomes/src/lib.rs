@@ -1,1 +1,924 @@
-//! placeholder
+//! The built-in `outcomes` metric module of cohortpress.
+//!
+//! It answers "where does this participant stand?": weight change from baseline in kg, % and
+//! BMI units with the WHO BMI class, the weight-change category, the 3/5/7/10 % milestones,
+//! lab values with their categories, and the safety flags that a licensed clinician should
+//! review (fast sustained loss, low logged intake, low BMI, lab values in the diabetes range,
+//! and a medication review when someone on glucose-lowering medicine loses fast or eats little).
+//!
+//! # Where the numbers come from
+//!
+//! * **Baseline weight** is the first weigh-in on or after enrolment
+//!   ([`ParticipantData::baseline_weight`]); when there are several weigh-ins on that day, their
+//!   mean. Only weigh-ins up to `period.to` are used.
+//! * **Current weight** is the `trend` module's `current_weight_kg` (with its interval); without
+//!   a trend output it is the mean of the weigh-ins on the last weigh-in day up to `period.to`.
+//! * **Trend levels** (milestones, largest loss, fast-loss flag) come from the `trend` module's
+//!   daily `weight_trend` series; without it, from the daily means of the raw weigh-ins.
+//! * **Rate** is the trend's `slope_kg_per_week`; without it, the least-squares slope of the
+//!   daily mean weigh-ins in the reporting period (REFERENCE §9.2: from a fitted slope, never
+//!   from two endpoint weights).
+//!
+//! Weight outcomes use every weigh-in up to `period.to`, including weigh-ins after a
+//! withdrawal (a follow-up weight is still a weight).
+//!
+//! # Cut points
+//!
+//! All categories use half-open intervals, so that every value falls in exactly one class
+//! (24.99 → normal, 25.0 → overweight). Values within 1e-9 of a cut point count as on it; this
+//! only absorbs floating-point round-off of unit conversions.
+//!
+//! The reports say "in the diabetes range", never "has diabetes": one result does not make a
+//! diagnosis (ADA Standards of Care 2025, §2).
+
+#![warn(missing_docs)]
+
+use chrono::{Duration, NaiveDate};
+use cohortpress_metric_api::units::{
+    CM_PER_IN, GLUCOSE_MGDL_PER_MMOLL, Mass, hba1c_percent_to_mmolmol,
+};
+use cohortpress_metric_api::{
+    Cell, Column, FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError,
+    ModuleOutput, ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
+};
+use std::collections::BTreeMap;
+
+/// Id of this module in `program.yaml`.
+pub const MODULE_ID: &str = "outcomes";
+
+/// Id of the module whose outputs this one reads.
+pub const TREND_MODULE: &str = "trend";
+
+/// Weight-loss milestones, % of baseline weight.
+pub const MILESTONES_PERCENT: [f64; 4] = [3.0, 5.0, 7.0, 10.0];
+
+/// Fewest logged intake days in the period before the intake flags are considered.
+pub const MIN_INTAKE_DAYS: usize = 4;
+
+/// Profile flag for people who take glucose-lowering medication.
+pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
+
+/// Round-off allowance at cut points (see the crate docs).
+const CUT_EPS: f64 = 1e-9;
+
+fn at_least(x: f64, cut: f64) -> bool {
+    x >= cut - CUT_EPS
+}
+
+/// Weight, series and flags of weight outcomes, lab categories and safety flags.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct OutcomesModule;
+
+/// Body-mass index, kg/m².
+///
+/// # Formula
+///
+/// BMI = weight (kg) / height (m)² (WHO TRS 894, 2000).
+///
+/// # Examples
+///
+/// ```
+/// let b = cohortpress_metric_outcomes::bmi(72.0, 1.70);
+/// assert!((b - 24.913).abs() < 0.001);
+/// ```
+pub fn bmi(kg: f64, m: f64) -> f64 {
+    kg / (m * m)
+}
+
+/// WHO adult BMI class of `bmi` (kg/m²) as `(code, label)`.
+///
+/// # Formula
+///
+/// Half-open intervals (WHO TRS 894, 2000): underweight < 18.5 ≤ normal < 25 ≤ overweight
+/// (pre-obese) < 30 ≤ obesity class I < 35 ≤ class II < 40 ≤ class III.
+///
+/// # Examples
+///
+/// ```
+/// use cohortpress_metric_outcomes::who_bmi_category;
+/// assert_eq!(who_bmi_category(24.99).0, "normal");
+/// assert_eq!(who_bmi_category(25.0).0, "overweight");
+/// ```
+pub fn who_bmi_category(bmi: f64) -> (&'static str, &'static str) {
+    if at_least(bmi, 40.0) {
+        ("obesity_class_3", "obesity class III")
+    } else if at_least(bmi, 35.0) {
+        ("obesity_class_2", "obesity class II")
+    } else if at_least(bmi, 30.0) {
+        ("obesity_class_1", "obesity class I")
+    } else if at_least(bmi, 25.0) {
+        ("overweight", "overweight (pre-obese)")
+    } else if at_least(bmi, 18.5) {
+        ("normal", "normal weight")
+    } else {
+        ("underweight", "underweight")
+    }
+}
+
+/// Glycaemia category of an HbA1c value in % (NGSP): `normal`, `prediabetes_range` or
+/// `diabetes_range`.
+///
+/// # Formula
+///
+/// < 5.7 % normal; 5.7 to < 6.5 % prediabetes range; ≥ 6.5 % diabetes range (ADA Standards of
+/// Care in Diabetes 2025, §2, Diabetes Care 48 Suppl 1:S27). A value given in mmol/mol is
+/// converted first, so 48 mmol/mol (6.54 %) is in the diabetes range and 47 (6.45 %) is not.
+///
+/// # Examples
+///
+/// ```
+/// use cohortpress_metric_outcomes::hba1c_category;
+/// assert_eq!(hba1c_category(6.4), "prediabetes_range");
+/// assert_eq!(hba1c_category(6.5), "diabetes_range");
+/// ```
+pub fn hba1c_category(percent: f64) -> &'static str {
+    if at_least(percent, 6.5) {
+        "diabetes_range"
+    } else if at_least(percent, 5.7) {
+        "prediabetes_range"
+    } else {
+        "normal"
+    }
+}
+
+/// Glycaemia category of a fasting plasma glucose in mmol/L: `normal`, `prediabetes_range` or
+/// `diabetes_range`.
+///
+/// # Formula
+///
+/// The value is converted to mg/dL (× 18.016) and compared with ADA's mg/dL cut points:
+/// < 100 normal; 100–125 prediabetes range (impaired fasting glucose); ≥ 126 diabetes range
+/// (ADA Standards of Care in Diabetes 2025, §2).
+///
+/// # Remarks
+///
+/// ADA prints the same cut points as 5.6 and 7.0 mmol/L, which are rounded: 5.6 mmol/L is
+/// 100.9 mg/dL and 7.0 mmol/L is 126.1 mg/dL, so both land in the category ADA gives them under
+/// this rule, and so do 100 and 126 mg/dL converted to mmol/L and back. The two printed tables
+/// disagree only for values with two or more decimals in mmol/L between 5.551 and 5.599 or
+/// between 6.994 and 6.999; there the mg/dL cut point decides, which gives the higher category
+/// (the more cautious reading for a result that a clinician will review).
+///
+/// # Examples
+///
+/// ```
+/// use cohortpress_metric_outcomes::fasting_glucose_category;
+/// assert_eq!(fasting_glucose_category(6.9), "prediabetes_range");
+/// assert_eq!(fasting_glucose_category(7.0), "diabetes_range");
+/// ```
+pub fn fasting_glucose_category(mmol_l: f64) -> &'static str {
+    let mg_dl = mmol_l * GLUCOSE_MGDL_PER_MMOLL;
+    if at_least(mg_dl, 126.0) {
+        "diabetes_range"
+    } else if at_least(mg_dl, 100.0) {
+        "prediabetes_range"
+    } else {
+        "normal"
+    }
+}
+
+/// Waist-circumference risk category (Europid cut points): `not_increased_risk`,
+/// `increased_risk` or `substantially_increased_risk`.
+///
+/// # Formula
+///
+/// Men: > 94 cm increased, > 102 cm substantially increased; women: > 80 cm and > 88 cm
+/// (WHO expert consultation on waist circumference, 2008, published 2011; from memory).
+pub fn waist_category(cm: f64, sex: Sex) -> &'static str {
+    let (increased, substantially) = match sex {
+        Sex::Male => (94.0, 102.0),
+        Sex::Female => (80.0, 88.0),
+    };
+    if cm > substantially + CUT_EPS {
+        "substantially_increased_risk"
+    } else if cm > increased + CUT_EPS {
+        "increased_risk"
+    } else {
+        "not_increased_risk"
+    }
+}
+
+/// Estimated average glucose (mg/dL) from HbA1c (%).
+///
+/// # Formula
+///
+/// eAG = 28.7 × A1C − 46.7 (ADAG study: Nathan et al. 2008, Diabetes Care 31:1473).
+///
+/// # Examples
+///
+/// ```
+/// let e = cohortpress_metric_outcomes::eag_mg_dl(7.0);
+/// assert!((e - 154.2).abs() < 1e-9);
+/// ```
+pub fn eag_mg_dl(a1c_percent: f64) -> f64 {
+    28.7 * a1c_percent - 46.7
+}
+
+/// Weight-change category of a change in % of baseline (negative = loss), as `(code, label)`.
+///
+/// # Formula
+///
+/// gain ≥ 3 % → `gain_3_or_more`; −3 % < change < +3 % → `stable` (Stevens et al. 2006,
+/// Int J Obes 30:391); loss 3 to < 5 % → `loss_3_to_5`; 5 to < 7 % → `loss_5_to_7`;
+/// 7 to < 10 % → `loss_7_to_10`; ≥ 10 % → `loss_10_or_more`.
+///
+/// # Examples
+///
+/// ```
+/// use cohortpress_metric_outcomes::weight_change_category;
+/// assert_eq!(weight_change_category(-2.9).0, "stable");
+/// assert_eq!(weight_change_category(-5.0).0, "loss_5_to_7");
+/// ```
+pub fn weight_change_category(percent: f64) -> (&'static str, &'static str) {
+    let loss = -percent;
+    if at_least(percent, 3.0) {
+        ("gain_3_or_more", "gain of 3 % or more")
+    } else if at_least(loss, 10.0) {
+        ("loss_10_or_more", "loss of 10 % or more")
+    } else if at_least(loss, 7.0) {
+        ("loss_7_to_10", "loss of 7 % to under 10 %")
+    } else if at_least(loss, 5.0) {
+        ("loss_5_to_7", "loss of 5 % to under 7 %")
+    } else if at_least(loss, 3.0) {
+        ("loss_3_to_5", "loss of 3 % to under 5 %")
+    } else {
+        ("stable", "stable (within 3 %)")
+    }
+}
+
+fn category_label(code: &str) -> &'static str {
+    match code {
+        "normal" => "normal range",
+        "prediabetes_range" => "in the prediabetes range",
+        "diabetes_range" => "in the diabetes range",
+        "not_increased_risk" => "not increased",
+        "increased_risk" => "increased",
+        "substantially_increased_risk" => "substantially increased",
+        _ => "recorded",
+    }
+}
+
+fn test_code(t: LabTest) -> &'static str {
+    match t {
+        LabTest::FastingGlucose => "fasting_glucose",
+        LabTest::Hba1c => "hba1c",
+        LabTest::Waist => "waist",
+        LabTest::SystolicBp => "systolic_bp",
+        LabTest::DiastolicBp => "diastolic_bp",
+    }
+}
+
+fn test_words(t: LabTest) -> &'static str {
+    match t {
+        LabTest::FastingGlucose => "fasting glucose",
+        LabTest::Hba1c => "HbA1c",
+        LabTest::Waist => "waist circumference",
+        LabTest::SystolicBp => "systolic blood pressure",
+        LabTest::DiastolicBp => "diastolic blood pressure",
+    }
+}
+
+/// Category code of one lab result.
+fn lab_category(lab: &LabResult, sex: Sex) -> &'static str {
+    match lab.test {
+        LabTest::FastingGlucose => fasting_glucose_category(lab.value),
+        LabTest::Hba1c => hba1c_category(lab.value),
+        LabTest::Waist => waist_category(lab.value, sex),
+        LabTest::SystolicBp | LabTest::DiastolicBp => "recorded",
+    }
+}
+
+/// The value in the other unit people use: (value, unit).
+fn lab_alt(lab: &LabResult) -> Option<(f64, &'static str)> {
+    match lab.test {
+        LabTest::FastingGlucose => Some((lab.value * GLUCOSE_MGDL_PER_MMOLL, "mg/dL")),
+        LabTest::Hba1c => Some((hba1c_percent_to_mmolmol(lab.value), "mmol/mol")),
+        LabTest::Waist => Some((lab.value / CM_PER_IN, "in")),
+        LabTest::SystolicBp | LabTest::DiastolicBp => None,
+    }
+}
+
+/// Daily mean of the weigh-ins from `from` to `to`, by day.
+fn daily_means(data: &ParticipantData, from: NaiveDate, to: NaiveDate) -> Vec<(NaiveDate, f64)> {
+    let mut days: BTreeMap<NaiveDate, (f64, usize)> = BTreeMap::new();
+    for w in data
+        .weights
+        .iter()
+        .filter(|w| w.date >= from && w.date <= to)
+    {
+        let e = days.entry(w.date).or_insert((0.0, 0));
+        e.0 += w.weight.kg();
+        e.1 += 1;
+    }
+    days.into_iter()
+        .map(|(d, (sum, n))| (d, sum / n as f64))
+        .collect()
+}
+
+/// A complete daily series from dated levels, filling missing days by linear interpolation.
+fn fill_daily(levels: &[(NaiveDate, f64)]) -> Vec<(NaiveDate, f64)> {
+    let mut out = Vec::new();
+    for pair in levels.windows(2) {
+        let ((d0, v0), (d1, v1)) = (pair[0], pair[1]);
+        let n = (d1 - d0).num_days();
+        for k in 0..n {
+            out.push((d0 + Duration::days(k), v0 + (v1 - v0) * k as f64 / n as f64));
+        }
+    }
+    if let Some(&last) = levels.last() {
+        out.push(last);
+    }
+    out
+}
+
+/// Least-squares slope of `points` in kg per week, `None` with fewer than two distinct days.
+fn ols_slope_per_week(points: &[(NaiveDate, f64)]) -> Option<f64> {
+    if points.len() < 2 {
+        return None;
+    }
+    let t0 = points[0].0;
+    let xs: Vec<f64> = points
+        .iter()
+        .map(|(d, _)| (*d - t0).num_days() as f64)
+        .collect();
+    let n = points.len() as f64;
+    let mx = xs.iter().sum::<f64>() / n;
+    let my = points.iter().map(|p| p.1).sum::<f64>() / n;
+    let sxx: f64 = xs.iter().map(|x| (x - mx).powi(2)).sum();
+    let sxy: f64 = xs
+        .iter()
+        .zip(points)
+        .map(|(x, p)| (x - mx) * (p.1 - my))
+        .sum();
+    (sxx > 0.0).then(|| 7.0 * sxy / sxx)
+}
+
+/// The fastest and the latest span of `span` days over which the daily level fell faster
+/// than `limit` kg/week: `(fastest rate, latest (start, end, rate))`.
+fn fast_loss_spans(
+    daily: &[(NaiveDate, f64)],
+    span: usize,
+    limit: f64,
+) -> Option<(f64, (NaiveDate, NaiveDate, f64))> {
+    let weeks = span as f64 / 7.0;
+    let mut fastest = f64::NEG_INFINITY;
+    let mut latest = None;
+    for i in span..daily.len() {
+        let (d0, v0) = daily[i - span];
+        let (d1, v1) = daily[i];
+        let rate = (v0 - v1) / weeks;
+        if rate > limit + CUT_EPS {
+            fastest = fastest.max(rate);
+            latest = Some((d0, d1, rate));
+        }
+    }
+    latest.map(|l| (fastest, l))
+}
+
+fn col(name: &str, unit: &str, label: &str) -> Column {
+    Column {
+        name: name.into(),
+        unit: unit.into(),
+        label: label.into(),
+    }
+}
+
+fn out(name: &str, kind: &str, unit: &str, description: &str) -> OutputSpec {
+    OutputSpec {
+        name: name.into(),
+        kind: kind.into(),
+        unit: unit.into(),
+        description: description.into(),
+    }
+}
+
+fn number(
+    name: &str,
+    default: f64,
+    unit: &str,
+    min: f64,
+    max: f64,
+    description: &str,
+) -> SettingSpec {
+    SettingSpec {
+        name: name.into(),
+        kind: SettingKind::Number,
+        default: serde_json::json!(default),
+        unit: unit.into(),
+        choices: vec![],
+        min: Some(min),
+        max: Some(max),
+        description: description.into(),
+    }
+}
+
+fn kg_lb(kg: f64) -> String {
+    format!("{kg:.1} kg ({:.1} lb)", Mass::from_kg(kg).lb())
+}
+
+impl MetricModule for OutcomesModule {
+    fn spec(&self) -> ModuleSpec {
+        ModuleSpec {
+            id: MODULE_ID.into(),
+            version: env!("CARGO_PKG_VERSION").into(),
+            description: "Weight outcomes from baseline (first weigh-in on or after enrolment) to \
+                the current trend weight: change in kg, % and BMI, WHO BMI class, weight-change \
+                category (stable within 3 %, Stevens et al. 2006), the 3/5/7/10 % milestones, lab \
+                values in both common units with their categories (ADA Standards of Care 2025 §2 \
+                for glucose and HbA1c, HbA1c NGSP/IFCC master equation, ADAG estimated average \
+                glucose, WHO 2008 waist cut points), and flags for clinician review: sustained \
+                fast loss, low or very low logged intake, BMI under 18.5, lab values in the \
+                prediabetes or diabetes range, and a medication review for people taking \
+                glucose-lowering medicine."
+                .into(),
+            settings: vec![
+                number(
+                    "intake_floor_female",
+                    1200.0,
+                    "kcal/d",
+                    0.0,
+                    5000.0,
+                    "mean logged intake below which a woman's intake is flagged as low \
+                     (common practice)",
+                ),
+                number(
+                    "intake_floor_male",
+                    1500.0,
+                    "kcal/d",
+                    0.0,
+                    5000.0,
+                    "mean logged intake below which a man's intake is flagged as low \
+                     (common practice)",
+                ),
+                number(
+                    "very_low_intake",
+                    800.0,
+                    "kcal/d",
+                    0.0,
+                    5000.0,
+                    "mean logged intake below which intake is flagged as very low (VLCD, \
+                     NIH/NHLBI 1998)",
+                ),
+                number(
+                    "fast_loss_kg_per_week",
+                    1.0,
+                    "kg/wk",
+                    0.1,
+                    5.0,
+                    "trend loss rate above which sustained loss is flagged (NIH/NHLBI 1998)",
+                ),
+                SettingSpec {
+                    name: "fast_loss_span_days".into(),
+                    kind: SettingKind::Integer,
+                    default: serde_json::json!(21),
+                    unit: "d".into(),
+                    choices: vec![],
+                    min: Some(7.0),
+                    max: Some(182.0),
+                    description: "length of the span over which fast loss must be sustained".into(),
+                },
+            ],
+            outputs: vec![
+                out(
+                    "baseline_weight_kg",
+                    "scalar",
+                    "kg",
+                    "first weigh-in day on or after enrolment",
+                ),
+                out(
+                    "current_weight_kg",
+                    "scalar",
+                    "kg",
+                    "trend weight at the end of the period",
+                ),
+                out("change_kg", "scalar", "kg", "current − baseline"),
+                out(
+                    "change_percent",
+                    "scalar",
+                    "%",
+                    "100·(current − baseline)/baseline; negative = loss",
+                ),
+                out("bmi_baseline_kg_m2", "scalar", "kg/m2", "BMI at baseline"),
+                out("bmi_current_kg_m2", "scalar", "kg/m2", "BMI now"),
+                out("bmi_change_kg_m2", "scalar", "kg/m2", "BMI change"),
+                out("rate_kg_per_week", "scalar", "kg/wk", "trend slope"),
+                out(
+                    "max_loss_percent",
+                    "scalar",
+                    "%",
+                    "largest loss on the trend so far (positive = loss)",
+                ),
+                out(
+                    "bmi_category_baseline",
+                    "text",
+                    "",
+                    "WHO BMI class at baseline",
+                ),
+                out("bmi_category_current", "text", "", "WHO BMI class now"),
+                out(
+                    "weight_change_category",
+                    "text",
+                    "",
+                    "weight-change category",
+                ),
+                out(
+                    "current_weight_source",
+                    "text",
+                    "",
+                    "`trend` or `weigh_ins`",
+                ),
+                out(
+                    "milestones",
+                    "table",
+                    "",
+                    "3/5/7/10 % milestones and the day each was reached",
+                ),
+                out(
+                    "labs",
+                    "table",
+                    "",
+                    "lab values in both units with categories",
+                ),
+                out(
+                    "fast_loss",
+                    "flag",
+                    "",
+                    "sustained loss faster than the limit",
+                ),
+                out(
+                    "low_intake",
+                    "flag",
+                    "",
+                    "mean logged intake below the floor",
+                ),
+                out(
+                    "very_low_intake",
+                    "flag",
+                    "",
+                    "mean logged intake below the VLCD limit",
+                ),
+                out("low_bmi", "flag", "", "current BMI under 18.5"),
+                out(
+                    "lab_diabetes_range",
+                    "flag",
+                    "",
+                    "latest lab value in the diabetes range",
+                ),
+                out(
+                    "lab_prediabetes_range",
+                    "flag",
+                    "",
+                    "latest lab value in the prediabetes range",
+                ),
+                out(
+                    "medication_review",
+                    "flag",
+                    "",
+                    "glucose-lowering medicine with fast loss or low intake",
+                ),
+            ],
+            requires: vec![TREND_MODULE.into()],
+        }
+    }
+
+    fn compute(
+        &self,
+        ctx: &ModuleContext,
+        data: &ParticipantData,
+    ) -> Result<ModuleOutput, ModuleError> {
+        let profile = &data.profile;
+        let to = ctx.period.to;
+        let trend = ctx.earlier.get(TREND_MODULE);
+        let mut output = ModuleOutput::default();
+
+        // Baseline: the first weigh-in day on or after enrolment, mean of that day.
+        let raw = daily_means(data, profile.enrolled, to);
+        let baseline = raw.first().copied();
+        let w0 = baseline.map(|b| b.1);
+
+        // Current weight: the trend's, else the last weigh-in day.
+        let trend_current = trend.and_then(|t| t.scalar_full("current_weight_kg"));
+        let (current, lower, upper, source) = match trend_current {
+            Some(s) if s.value.is_some() => (s.value, s.lower, s.upper, "trend"),
+            _ => (raw.last().map(|r| r.1), None, None, "weigh_ins"),
+        };
+        // Trend levels from the trend series, else from the raw daily means.
+        let levels: Vec<(NaiveDate, f64)> = match trend.and_then(|t| t.series("weight_trend")) {
+            Some(s) if !s.points.is_empty() => {
+                let by_day: BTreeMap<NaiveDate, f64> = s
+                    .points
+                    .iter()
+                    .filter(|p| p.date <= to && baseline.is_some_and(|b| p.date >= b.0))
+                    .map(|p| (p.date, p.value))
+                    .collect();
+                by_day.into_iter().collect()
+            }
+            _ => raw.clone(),
+        };
+
+        let m = profile.height.m();
+        let bmi_of = |kg: Option<f64>| kg.filter(|_| m > 0.0).map(|kg| bmi(kg, m));
+        let change = w0.zip(current).map(|(a, b)| b - a);
+        let change_pct = w0.zip(change).map(|(a, c)| 100.0 * c / a);
+        let (bmi0, bmi1) = (bmi_of(w0), bmi_of(current));
+
+        output.push_scalar("baseline_weight_kg", w0, "kg", "Starting weight");
+        output.push_interval(
+            "current_weight_kg",
+            current,
+            lower,
+            upper,
+            "kg",
+            "Current weight",
+        );
+        output.push_scalar("change_kg", change, "kg", "Weight change");
+        output.push_scalar("change_percent", change_pct, "%", "Weight change");
+        output.push_scalar("bmi_baseline_kg_m2", bmi0, "kg/m2", "Starting BMI");
+        output.push_scalar("bmi_current_kg_m2", bmi1, "kg/m2", "Current BMI");
+        output.push_scalar(
+            "bmi_change_kg_m2",
+            bmi0.zip(bmi1).map(|(a, b)| b - a),
+            "kg/m2",
+            "BMI change",
+        );
+        let rate = match trend.and_then(|t| t.scalar("slope_kg_per_week")) {
+            Some(r) => Some(r),
+            None => {
+                let in_period: Vec<_> = raw
+                    .iter()
+                    .copied()
+                    .filter(|(d, _)| *d >= ctx.period.from)
+                    .collect();
+                ols_slope_per_week(&in_period)
+            }
+        };
+        output.push_scalar("rate_kg_per_week", rate, "kg/wk", "Rate of change per week");
+        let max_loss = w0.filter(|_| !levels.is_empty()).map(|w0| {
+            levels
+                .iter()
+                .map(|(_, l)| 100.0 * (w0 - l) / w0)
+                .fold(0.0, f64::max)
+        });
+        output.push_scalar("max_loss_percent", max_loss, "%", "Largest loss so far");
+
+        if let Some(b) = bmi0 {
+            let (code, label) = who_bmi_category(b);
+            output.push_text("bmi_category_baseline", code, label);
+        }
+        if let Some(b) = bmi1 {
+            let (code, label) = who_bmi_category(b);
+            output.push_text("bmi_category_current", code, label);
+        }
+        if let Some(p) = change_pct {
+            let (code, label) = weight_change_category(p);
+            output.push_text("weight_change_category", code, label);
+        }
+        output.push_text(
+            "current_weight_source",
+            source,
+            if source == "trend" {
+                "weight trend"
+            } else {
+                "last weigh-in"
+            },
+        );
+
+        // Milestones: first day the trend level is at or below the threshold weight.
+        let mut rows = Vec::new();
+        for t in MILESTONES_PERCENT {
+            let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
+            let reached = threshold
+                .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
+                .map(|(d, _)| *d);
+            rows.push(vec![
+                Cell::Number(t),
+                threshold.map_or(Cell::Empty, Cell::Number),
+                Cell::Text(if reached.is_some() { "yes" } else { "no" }.into()),
+                reached.map_or(Cell::Empty, |d| Cell::Text(d.to_string())),
+            ]);
+        }
+        output.tables.push(Table {
+            name: "milestones".into(),
+            label: "Weight-loss milestones".into(),
+            columns: vec![
+                col("threshold_percent", "%", "Loss of"),
+                col("threshold_weight_kg", "kg", "Weight at or below"),
+                col("reached", "", "Reached"),
+                col("date_reached", "", "First reached on"),
+            ],
+            rows,
+        });
+
+        // Labs up to the end of the period.
+        let labs: Vec<&LabResult> = data.labs.iter().filter(|l| l.date <= to).collect();
+        output.tables.push(Table {
+            name: "labs".into(),
+            label: "Lab results and measurements".into(),
+            columns: vec![
+                col("date", "", "Date"),
+                col("test", "", "Test"),
+                col("value", "", "Value"),
+                col("unit", "", "Unit"),
+                col("value_alt", "", "Value (other unit)"),
+                col("unit_alt", "", "Other unit"),
+                col("category", "", "Category"),
+                col("eag_mg_dl", "mg/dL", "Estimated average glucose"),
+            ],
+            rows: labs
+                .iter()
+                .map(|l| {
+                    let alt = lab_alt(l);
+                    vec![
+                        Cell::Text(l.date.to_string()),
+                        Cell::Text(test_code(l.test).into()),
+                        Cell::Number(l.value),
+                        Cell::Text(l.test.canonical_unit().into()),
+                        alt.map_or(Cell::Empty, |a| Cell::Number(a.0)),
+                        alt.map_or(Cell::Empty, |a| Cell::Text(a.1.into())),
+                        Cell::Text(lab_category(l, profile.sex).into()),
+                        if l.test == LabTest::Hba1c {
+                            Cell::Number(eag_mg_dl(l.value))
+                        } else {
+                            Cell::Empty
+                        },
+                    ]
+                })
+                .collect(),
+        });
+
+        // ---- Flags ----
+        if w0.is_none() {
+            output.push_flag(
+                "insufficient_data",
+                FlagSeverity::Info,
+                "No weigh-in on or after enrolment yet, so weight outcomes cannot be shown.",
+            );
+        }
+
+        let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
+        let span = ctx
+            .setting_f64("fast_loss_span_days", 21.0)
+            .round()
+            .max(1.0) as usize;
+        let fast = fast_loss_spans(&fill_daily(&levels), span, limit);
+        if let Some((fastest, (d0, d1, rate))) = fast {
+            output.push_flag(
+                "fast_loss",
+                FlagSeverity::Clinical,
+                format!(
+                    "Weight came down faster than {} a week over {span} days in a row (most \
+                     recently {d0} to {d1}: about {} a week; fastest about {} a week). Losing \
+                     more than about 1 kg (2 lb) a week for several weeks is worth reviewing \
+                     with a licensed clinician.",
+                    kg_lb(limit),
+                    kg_lb(rate),
+                    kg_lb(fastest),
+                ),
+            );
+        }
+
+        let intake: Vec<f64> = data
+            .intake
+            .iter()
+            .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
+            .map(|i| i.kcal)
+            .collect();
+        let mut low_intake = false;
+        if intake.len() >= MIN_INTAKE_DAYS {
+            let mean = intake.iter().sum::<f64>() / intake.len() as f64;
+            let floor = match profile.sex {
+                Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
+                Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
+            };
+            let very_low = ctx.setting_f64("very_low_intake", 800.0);
+            let days = intake.len();
+            // Very low subsumes low: one flag, the more serious one.
+            if mean < very_low {
+                low_intake = true;
+                output.push_flag(
+                    "very_low_intake",
+                    FlagSeverity::Clinical,
+                    format!(
+                        "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
+                         days, below {very_low:.0} kcal a day. Eating this little is normally \
+                         done only under medical supervision; please review it with a licensed \
+                         clinician."
+                    ),
+                );
+            } else if mean < floor {
+                low_intake = true;
+                output.push_flag(
+                    "low_intake",
+                    FlagSeverity::Notice,
+                    format!(
+                        "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
+                         days, below {floor:.0} kcal a day, a level usually not advised without \
+                         supervision. If the log is complete, consider discussing it with a \
+                         licensed clinician."
+                    ),
+                );
+            }
+        }
+
+        if let Some(b) = bmi1
+            && who_bmi_category(b).0 == "underweight"
+        {
+            output.push_flag(
+                "low_bmi",
+                FlagSeverity::Clinical,
+                format!(
+                    "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
+                         normal range (WHO). Further weight loss should be reviewed with a \
+                         licensed clinician."
+                ),
+            );
+        }
+
+        let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
+        for l in &labs {
+            latest.insert(l.test, l);
+        }
+        for l in latest.values() {
+            let category = lab_category(l, profile.sex);
+            let (code, severity) = match category {
+                "diabetes_range" => ("lab_diabetes_range", FlagSeverity::Clinical),
+                "prediabetes_range" => ("lab_prediabetes_range", FlagSeverity::Notice),
+                _ => continue,
+            };
+            let shown = match l.test {
+                LabTest::Hba1c => format!("{:.1} %", l.value),
+                _ => format!(
+                    "{:.1} mmol/L ({:.0} mg/dL)",
+                    l.value,
+                    l.value * GLUCOSE_MGDL_PER_MMOLL
+                ),
+            };
+            output.push_flag(
+                code,
+                severity,
+                format!(
+                    "The most recent {} ({shown}, {}) is {} (ADA Standards of Care). \
+                     One result is not a diagnosis; please review it with a licensed clinician.",
+                    test_words(l.test),
+                    l.date,
+                    category_label(category),
+                ),
+            );
+        }
+
+        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG)
+            && (fast.is_some() || low_intake)
+        {
+            let why = match (fast.is_some(), low_intake) {
+                (true, true) => "fast weight loss and low logged intake",
+                (true, false) => "fast weight loss",
+                _ => "low logged intake",
+            };
+            output.push_flag(
+                "medication_review",
+                FlagSeverity::Clinical,
+                format!(
+                    "The profile notes a glucose-lowering medicine. With {why}, the dose that \
+                     suited before may now lower blood sugar too far. Please ask the clinician \
+                     who prescribes it whether the dose needs review; do not change it without \
+                     their advice."
+                ),
+            );
+        }
+
+        Ok(output)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn d(s: &str) -> NaiveDate {
+        s.parse().unwrap()
+    }
+
+    #[test]
+    fn fill_daily_interpolates_between_known_days() {
+        let filled = fill_daily(&[(d("2027-03-01"), 90.0), (d("2027-03-05"), 88.0)]);
+        let values: Vec<f64> = filled.iter().map(|p| p.1).collect();
+        assert_eq!(values, vec![90.0, 89.5, 89.0, 88.5, 88.0]);
+        assert_eq!(filled[4].0, d("2027-03-05"));
+        assert!(fill_daily(&[]).is_empty());
+    }
+
+    #[test]
+    fn ols_slope_of_a_line_is_its_slope() {
+        let pts: Vec<_> = (0..10)
+            .map(|k| {
+                (
+                    d("2027-03-01") + Duration::days(2 * k),
+                    90.0 - 0.1 * k as f64,
+                )
+            })
+            .collect();
+        // 0.1 kg every 2 days = 0.35 kg/week.
+        assert!((ols_slope_per_week(&pts).unwrap() + 0.35).abs() < 1e-12);
+        assert_eq!(ols_slope_per_week(&pts[..1]), None);
+    }
+}

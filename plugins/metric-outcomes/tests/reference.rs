@@ -1,0 +1,762 @@
+//! Reference and behaviour tests of the `outcomes` module.
+//!
+//! Every check against a published standard names its source beside it, with the status tag
+//! REFERENCE.md gives it ([C] confirmed, [M] from memory, [D] computed from the stated formula:
+//! a regression value for our implementation, not a number printed in the source). The
+//! `compute()` tests use small synthetic participants and a synthetic `trend` output built here,
+//! with expected values worked out in the comments.
+
+use approx::assert_abs_diff_eq;
+use chrono::{Duration, NaiveDate};
+use cohortpress_metric_api::units::{
+    Length, Mass, glucose_mgdl_to_mmoll, hba1c_mmolmol_to_percent, hba1c_percent_to_mmolmol,
+};
+use cohortpress_metric_api::{
+    Cell, FlagSeverity, IntakeDay, LabResult, LabTest, MetricModule, ModuleContext, ModuleOutput,
+    ParticipantData, Period, Point, Profile, ProgramInfo, Series, Sex, Targets, UnitSystem,
+    WeighIn,
+};
+use cohortpress_metric_outcomes::{
+    OutcomesModule, bmi, eag_mg_dl, fasting_glucose_category, hba1c_category, waist_category,
+    weight_change_category, who_bmi_category,
+};
+use std::collections::BTreeMap;
+
+// ---------------------------------------------------------------------------------------------
+// Published cut points and formulas
+// ---------------------------------------------------------------------------------------------
+
+#[test]
+fn who_bmi_classes_with_boundaries() {
+    // WHO TRS 894 (2000) adult classes as half-open intervals (REFERENCE §5.1; the 25 and 30
+    // cut points confirmed via the AHA/ACC/TOS guideline, Jensen et al. 2014, Circulation
+    // 129:S102; the others from memory).
+    let cases = [
+        (16.0, "underweight"),
+        (18.49, "underweight"),
+        (18.5, "normal"),
+        (24.99, "normal"),
+        (25.0, "overweight"),
+        (29.99, "overweight"),
+        (30.0, "obesity_class_1"),
+        (34.99, "obesity_class_1"),
+        (35.0, "obesity_class_2"),
+        (39.99, "obesity_class_2"),
+        (40.0, "obesity_class_3"),
+        (55.0, "obesity_class_3"),
+    ];
+    for (b, code) in cases {
+        assert_eq!(who_bmi_category(b).0, code, "BMI {b}");
+    }
+    assert_eq!(who_bmi_category(27.0).1, "overweight (pre-obese)");
+    assert_eq!(who_bmi_category(32.0).1, "obesity class I");
+}
+
+#[test]
+fn bmi_formula() {
+    // IOM 2002/2005 DRI energy table: a 1.80 m adult at BMI 24.99 weighs 80.97 kg
+    // (REFERENCE §1.6 [C/D]).
+    assert_abs_diff_eq!(bmi(80.97, 1.80), 24.99, epsilon = 0.005);
+    // A weight that is exactly BMI 25 at 1.60 m (64 kg) classifies as overweight even after
+    // floating-point division (our half-open rule, REFERENCE §5.1).
+    assert_eq!(who_bmi_category(bmi(64.0, 1.6)).0, "overweight");
+    assert_eq!(who_bmi_category(bmi(63.99, 1.6)).0, "normal");
+}
+
+#[test]
+fn ada_hba1c_categories() {
+    // ADA Standards of Care in Diabetes 2025, §2 (Diabetes Care 48 Suppl 1:S27) [C]:
+    // < 5.7 % normal, 5.7–6.4 % prediabetes, >= 6.5 % diabetes.
+    assert_eq!(hba1c_category(5.6), "normal");
+    assert_eq!(hba1c_category(5.69), "normal");
+    assert_eq!(hba1c_category(5.7), "prediabetes_range");
+    assert_eq!(hba1c_category(6.4), "prediabetes_range");
+    assert_eq!(hba1c_category(6.49), "prediabetes_range");
+    assert_eq!(hba1c_category(6.5), "diabetes_range");
+    assert_eq!(hba1c_category(9.0), "diabetes_range");
+    // Same standard in IFCC units [C]: prediabetes 39–47 mmol/mol, diabetes >= 48 mmol/mol.
+    assert_eq!(hba1c_category(hba1c_mmolmol_to_percent(38.0)), "normal");
+    assert_eq!(
+        hba1c_category(hba1c_mmolmol_to_percent(39.0)),
+        "prediabetes_range"
+    );
+    assert_eq!(
+        hba1c_category(hba1c_mmolmol_to_percent(47.0)),
+        "prediabetes_range"
+    );
+    assert_eq!(
+        hba1c_category(hba1c_mmolmol_to_percent(48.0)),
+        "diabetes_range"
+    );
+}
+
+#[test]
+fn ada_fasting_glucose_categories() {
+    // ADA Standards of Care in Diabetes 2025, §2 [C]: < 100 mg/dL normal, 100–125 impaired
+    // fasting glucose (prediabetes), >= 126 diabetes. Values arrive in mmol/L (canonical unit).
+    let mg = |x: f64| fasting_glucose_category(glucose_mgdl_to_mmoll(x));
+    assert_eq!(mg(99.0), "normal");
+    assert_eq!(mg(99.9), "normal");
+    assert_eq!(mg(100.0), "prediabetes_range");
+    assert_eq!(mg(125.0), "prediabetes_range");
+    assert_eq!(mg(126.0), "diabetes_range");
+    // ADA's printed mmol/L cut points [C]: 5.6–6.9 mmol/L prediabetes, >= 7.0 diabetes.
+    // 7.0 mmol/L = 126.1 mg/dL and 5.6 mmol/L = 100.9 mg/dL (× 18.016, REFERENCE §0 [D]).
+    assert_eq!(fasting_glucose_category(5.5), "normal");
+    assert_eq!(fasting_glucose_category(5.6), "prediabetes_range");
+    assert_eq!(fasting_glucose_category(6.9), "prediabetes_range");
+    assert_eq!(fasting_glucose_category(6.99), "prediabetes_range");
+    assert_eq!(fasting_glucose_category(7.0), "diabetes_range");
+    // Our documented rule for the narrow disagreement band: mg/dL decides (5.56 mmol/L is
+    // 100.2 mg/dL).
+    assert_eq!(fasting_glucose_category(5.56), "prediabetes_range");
+}
+
+#[test]
+fn hba1c_unit_conversion_master_equation() {
+    // NGSP/IFCC master equation, Hoelzel et al. 2004, Clin Chem 50:166 [C];
+    // check values [D] from REFERENCE §5.4 (tol ±0.05).
+    for (pct, ifcc) in [
+        (5.7, 38.80),
+        (6.0, 42.08),
+        (6.5, 47.55),
+        (7.0, 53.01),
+        (8.0, 63.94),
+    ] {
+        assert_abs_diff_eq!(hba1c_percent_to_mmolmol(pct), ifcc, epsilon = 0.05);
+    }
+    assert_abs_diff_eq!(hba1c_mmolmol_to_percent(48.0), 6.543, epsilon = 0.005);
+    assert_abs_diff_eq!(hba1c_mmolmol_to_percent(53.0), 7.000, epsilon = 0.005);
+}
+
+#[test]
+fn estimated_average_glucose_adag() {
+    // eAG = 28.7 × A1C − 46.7, Nathan et al. 2008, Diabetes Care 31:1473 [C]; values [D]
+    // (REFERENCE §5.4), which round to the paper's table values 97/126/154/183/212/240 mg/dL.
+    for (a1c, eag, rounded) in [
+        (5.0, 96.8, 97.0),
+        (6.0, 125.5, 126.0),
+        (7.0, 154.2, 154.0),
+        (8.0, 182.9, 183.0),
+        (9.0, 211.6, 212.0),
+        (10.0, 240.3, 240.0),
+    ] {
+        assert_abs_diff_eq!(eag_mg_dl(a1c), eag, epsilon = 1e-9);
+        // 125.5 sits on a rounding edge in binary floating point, so compare within half a unit.
+        assert!((eag_mg_dl(a1c) - rounded).abs() <= 0.5 + 1e-9, "{a1c} %");
+    }
+}
+
+#[test]
+fn glucose_unit_conversion() {
+    // REFERENCE §0 [D], matching the ADA table pairs [C]: 126 mg/dL → 7.0, 100 → 5.6,
+    // 140 → 7.8, 200 → 11.1 mmol/L.
+    assert_abs_diff_eq!(glucose_mgdl_to_mmoll(126.0), 6.99, epsilon = 0.01);
+    assert_abs_diff_eq!(glucose_mgdl_to_mmoll(100.0), 5.55, epsilon = 0.01);
+    assert_abs_diff_eq!(glucose_mgdl_to_mmoll(140.0), 7.77, epsilon = 0.01);
+    assert_abs_diff_eq!(glucose_mgdl_to_mmoll(200.0), 11.10, epsilon = 0.01);
+}
+
+#[test]
+fn weight_change_categories() {
+    // Stevens et al. 2006, Int J Obes 30:391: maintenance = change < 3 % [C]; the 3–<5, 5–<7,
+    // 7–<10, >= 10 % loss bands are the categories commonly reported (REFERENCE §9.2 [S]).
+    let cases = [
+        (5.0, "gain_3_or_more"),
+        (3.0, "gain_3_or_more"),
+        (2.99, "stable"),
+        (0.0, "stable"),
+        (-2.99, "stable"),
+        (-3.0, "loss_3_to_5"),
+        (-4.99, "loss_3_to_5"),
+        (-5.0, "loss_5_to_7"),
+        (-6.99, "loss_5_to_7"),
+        (-7.0, "loss_7_to_10"),
+        (-9.99, "loss_7_to_10"),
+        (-10.0, "loss_10_or_more"),
+        (-18.0, "loss_10_or_more"),
+    ];
+    for (p, code) in cases {
+        assert_eq!(weight_change_category(p).0, code, "change {p} %");
+    }
+    // A 5 % loss computed through division lands on the cut point, not just below it.
+    let pct = 100.0 * (85.5 - 90.0) / 90.0;
+    assert_eq!(weight_change_category(pct).0, "loss_5_to_7");
+}
+
+#[test]
+fn waist_categories() {
+    // WHO expert consultation on waist circumference (2008; published 2011), Europid cut points,
+    // from memory (REFERENCE §5.2 [M]): men > 94 / > 102 cm, women > 80 / > 88 cm.
+    assert_eq!(waist_category(94.0, Sex::Male), "not_increased_risk");
+    assert_eq!(waist_category(94.1, Sex::Male), "increased_risk");
+    assert_eq!(waist_category(102.0, Sex::Male), "increased_risk");
+    assert_eq!(
+        waist_category(102.1, Sex::Male),
+        "substantially_increased_risk"
+    );
+    assert_eq!(waist_category(80.0, Sex::Female), "not_increased_risk");
+    assert_eq!(waist_category(80.1, Sex::Female), "increased_risk");
+    assert_eq!(waist_category(88.0, Sex::Female), "increased_risk");
+    assert_eq!(
+        waist_category(88.1, Sex::Female),
+        "substantially_increased_risk"
+    );
+}
+
+// ---------------------------------------------------------------------------------------------
+// compute() on synthetic participants
+// ---------------------------------------------------------------------------------------------
+
+fn d(s: &str) -> NaiveDate {
+    s.parse().unwrap()
+}
+
+const START: &str = "2027-03-01";
+
+fn participant(sex: Sex, height_cm: f64) -> ParticipantData {
+    ParticipantData {
+        profile: Profile {
+            id: "T-002".into(),
+            name: None,
+            sex,
+            birth_date: None,
+            age_years: 50.0,
+            height: Length::from_cm(height_cm),
+            enrolled: d(START),
+            withdrew: None,
+            groups: BTreeMap::new(),
+            body_fat_percent: None,
+            targets: Targets::default(),
+            flags: vec![],
+        },
+        weights: vec![],
+        intake: vec![],
+        activity: vec![],
+        sessions: vec![],
+        labs: vec![],
+    }
+}
+
+fn weigh(date: NaiveDate, kg: f64) -> WeighIn {
+    WeighIn {
+        date,
+        time: None,
+        weight: Mass::from_kg(kg),
+        source: None,
+    }
+}
+
+fn day(k: i64) -> NaiveDate {
+    d(START) + Duration::days(k)
+}
+
+/// A synthetic `trend` output: daily levels `level(k)` for k in `0..=days`, current weight the
+/// level on `current_day`, slope as given.
+fn trend_output(
+    days: i64,
+    current_day: i64,
+    slope: f64,
+    level: impl Fn(i64) -> f64,
+) -> ModuleOutput {
+    let mut t = ModuleOutput::default();
+    let cur = level(current_day);
+    t.push_interval(
+        "current_weight_kg",
+        Some(cur),
+        Some(cur - 0.4),
+        Some(cur + 0.4),
+        "kg",
+        "w",
+    );
+    t.push_scalar("slope_kg_per_week", Some(slope), "kg/wk", "slope");
+    t.series.push(Series {
+        name: "weight_trend".into(),
+        unit: "kg".into(),
+        step: "daily".into(),
+        label: "trend".into(),
+        points: (0..=days)
+            .map(|k| Point {
+                date: day(k),
+                value: level(k),
+                lower: None,
+                upper: None,
+            })
+            .collect(),
+    });
+    t.series.push(Series {
+        name: "weigh_ins".into(),
+        unit: "kg".into(),
+        step: "irregular".into(),
+        label: "weigh-ins".into(),
+        points: vec![],
+    });
+    t
+}
+
+fn ctx(from: NaiveDate, to: NaiveDate, trend: Option<ModuleOutput>) -> ModuleContext {
+    ctx_with(from, to, trend, serde_json::Value::Null)
+}
+
+fn ctx_with(
+    from: NaiveDate,
+    to: NaiveDate,
+    trend: Option<ModuleOutput>,
+    settings: serde_json::Value,
+) -> ModuleContext {
+    let mut earlier = BTreeMap::new();
+    if let Some(t) = trend {
+        earlier.insert("trend".to_string(), t);
+    }
+    ModuleContext {
+        program: ProgramInfo {
+            id: "demo".into(),
+            title: "Demo".into(),
+            start: d(START),
+            end: d("2027-08-31"),
+            units: UnitSystem::Metric,
+            targets: Targets::default(),
+        },
+        period: Period { from, to },
+        as_of: to,
+        settings: OutcomesModule.spec().resolve_settings(&settings).unwrap(),
+        earlier,
+    }
+}
+
+fn run(c: &ModuleContext, data: &ParticipantData) -> ModuleOutput {
+    OutcomesModule.compute(c, data).unwrap()
+}
+
+fn codes(out: &ModuleOutput) -> Vec<&str> {
+    out.flags.iter().map(|f| f.code.as_str()).collect()
+}
+
+fn text_cells(row: &[Cell]) -> Vec<String> {
+    row.iter()
+        .map(|c| match c {
+            Cell::Text(s) => s.clone(),
+            Cell::Number(x) => format!("{x}"),
+            Cell::Empty => String::new(),
+        })
+        .collect()
+}
+
+/// Woman, 165 cm; baseline day 03-01 has two weigh-ins (99.5 and 100.5 → mean 100.0); the trend
+/// falls 0.125 kg/day (0.875 kg/week) from 100.0.
+fn steady_loser() -> ParticipantData {
+    let mut p = participant(Sex::Female, 165.0);
+    p.weights = vec![
+        weigh(day(0), 99.5),
+        weigh(day(0), 100.5),
+        weigh(day(10), 98.9),
+        weigh(day(40), 95.2),
+        weigh(day(70), 91.0),
+    ];
+    p
+}
+
+#[test]
+fn outcomes_from_the_trend() {
+    let data = steady_loser();
+    // Trend runs to day 80 but the period ends on day 70: later levels must be ignored.
+    let trend = trend_output(80, 70, -0.875, |k| 100.0 - 0.125 * k as f64);
+    let out = run(&ctx(day(40), day(70), Some(trend)), &data);
+
+    assert_eq!(out.scalar("baseline_weight_kg"), Some(100.0));
+    // Level on day 70: 100 − 8.75 = 91.25 kg.
+    assert_eq!(out.scalar("current_weight_kg"), Some(91.25));
+    let cur = out.scalar_full("current_weight_kg").unwrap();
+    assert_eq!((cur.lower, cur.upper), (Some(90.85), Some(91.65)));
+    assert_abs_diff_eq!(out.scalar("change_kg").unwrap(), -8.75, epsilon = 1e-12);
+    assert_abs_diff_eq!(
+        out.scalar("change_percent").unwrap(),
+        -8.75,
+        epsilon = 1e-12
+    );
+    let h2 = 1.65 * 1.65;
+    assert_abs_diff_eq!(
+        out.scalar("bmi_baseline_kg_m2").unwrap(),
+        100.0 / h2,
+        epsilon = 1e-12
+    );
+    assert_abs_diff_eq!(
+        out.scalar("bmi_current_kg_m2").unwrap(),
+        91.25 / h2,
+        epsilon = 1e-12
+    );
+    assert_abs_diff_eq!(
+        out.scalar("bmi_change_kg_m2").unwrap(),
+        -8.75 / h2,
+        epsilon = 1e-12
+    );
+    assert_eq!(out.scalar("rate_kg_per_week"), Some(-0.875));
+    assert_abs_diff_eq!(
+        out.scalar("max_loss_percent").unwrap(),
+        8.75,
+        epsilon = 1e-12
+    );
+    // 36.7 kg/m² → class II; 33.5 → class I (WHO TRS 894).
+    assert_eq!(out.text("bmi_category_baseline"), Some("obesity_class_2"));
+    assert_eq!(out.text("bmi_category_current"), Some("obesity_class_1"));
+    assert_eq!(out.text("weight_change_category"), Some("loss_7_to_10"));
+    assert_eq!(out.text("current_weight_source"), Some("trend"));
+
+    // Milestones: 97 kg on day 24 (03-25), 95 on day 40 (04-10), 93 on day 56 (04-26);
+    // 90 kg would be day 80, after the period.
+    let t = out.table("milestones").unwrap();
+    let rows: Vec<Vec<String>> = t.rows.iter().map(|r| text_cells(r)).collect();
+    assert_eq!(
+        rows,
+        vec![
+            vec!["3", "97", "yes", "2027-03-25"],
+            vec!["5", "95", "yes", "2027-04-10"],
+            vec!["7", "93", "yes", "2027-04-26"],
+            vec!["10", "90", "no", ""],
+        ]
+    );
+    assert_eq!(t.rows[3][3], Cell::Empty);
+    // 0.875 kg/week is below the 1 kg/week limit: no flag at all.
+    assert!(out.flags.is_empty(), "{:?}", out.flags);
+}
+
+#[test]
+fn fast_loss_needs_a_sustained_rate_above_the_limit() {
+    let data = steady_loser();
+    // 0.2 kg/day = 1.4 kg/week for 30 days: flagged for clinician review.
+    // (NIH/NHLBI 1998 Clinical Guidelines: 0.5–1 kg a week, from memory; DESIGN: flag losses
+    // faster than about 1 kg a week sustained.)
+    let fast = trend_output(30, 30, -1.4, |k| 100.0 - 0.2 * k as f64);
+    let out = run(&ctx(day(0), day(30), Some(fast)), &data);
+    assert_eq!(codes(&out), vec!["fast_loss"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    assert!(
+        out.flags[0].message.contains("1.4 kg"),
+        "{}",
+        out.flags[0].message
+    );
+
+    // Exactly 1 kg/week for 30 days does not *exceed* the limit.
+    let edge = trend_output(30, 30, -1.0, |k| 100.0 - k as f64 / 7.0);
+    assert!(
+        run(&ctx(day(0), day(30), Some(edge)), &data)
+            .flags
+            .is_empty()
+    );
+
+    // A 2 kg drop in one week followed by a flat trend: over any 21 days at most 2/3 kg/week.
+    let burst = trend_output(40, 40, 0.0, |k| 100.0 - 2.0 * (k.min(7) as f64) / 7.0);
+    assert!(
+        run(&ctx(day(0), day(40), Some(burst)), &data)
+            .flags
+            .is_empty()
+    );
+
+    // Only 20 days of fast loss: no 21-day span exists yet.
+    let short = trend_output(20, 20, -1.4, |k| 100.0 - 0.2 * k as f64);
+    assert!(
+        run(&ctx(day(0), day(20), Some(short)), &data)
+            .flags
+            .is_empty()
+    );
+
+    // Settings change the limit: 0.875 kg/week exceeds 0.5.
+    let steady = trend_output(70, 70, -0.875, |k| 100.0 - 0.125 * k as f64);
+    let c = ctx_with(
+        day(0),
+        day(70),
+        Some(steady),
+        serde_json::json!({"fast_loss_kg_per_week": 0.5, "fast_loss_span_days": 28}),
+    );
+    assert_eq!(codes(&run(&c, &data)), vec!["fast_loss"]);
+}
+
+fn with_intake(mut p: ParticipantData, days: &[(i64, f64)]) -> ParticipantData {
+    p.intake = days
+        .iter()
+        .map(|&(k, kcal)| IntakeDay {
+            date: day(k),
+            kcal,
+            carbs_g: None,
+            fat_g: None,
+            protein_g: None,
+            free_sugars_g: None,
+        })
+        .collect();
+    p
+}
+
+#[test]
+fn intake_flags() {
+    // Floors 1200 (women) / 1500 (men) kcal/d: practice convention (REFERENCE §6, from memory);
+    // very low < 800 kcal/d: VLCD, NIH/NHLBI 1998 Clinical Guidelines (from memory).
+    let c = ctx(day(0), day(13), None);
+    let base = steady_loser();
+
+    // Woman, 5 days averaging 1100 kcal: low intake notice.
+    let p = with_intake(
+        base.clone(),
+        &[
+            (1, 1000.0),
+            (2, 1200.0),
+            (3, 1100.0),
+            (4, 1000.0),
+            (5, 1200.0),
+        ],
+    );
+    let out = run(&c, &p);
+    assert_eq!(codes(&out), vec!["low_intake"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Notice);
+    assert!(
+        out.flags[0].message.contains("1100 kcal"),
+        "{}",
+        out.flags[0].message
+    );
+
+    // Woman at 1250: no flag. The same intake for a man (floor 1500): low.
+    let p = with_intake(
+        base.clone(),
+        &[(1, 1250.0), (2, 1250.0), (3, 1250.0), (4, 1250.0)],
+    );
+    assert!(run(&c, &p).flags.is_empty());
+    let mut man = p.clone();
+    man.profile.sex = Sex::Male;
+    assert_eq!(codes(&run(&c, &man)), vec!["low_intake"]);
+
+    // Four days averaging 750: very low (Clinical), and not also "low".
+    let p = with_intake(
+        base.clone(),
+        &[(1, 700.0), (2, 800.0), (3, 700.0), (4, 800.0)],
+    );
+    let out = run(&c, &p);
+    assert_eq!(codes(&out), vec!["very_low_intake"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+
+    // Only three logged days in the period (the fourth is after it): too few to judge.
+    let p = with_intake(base, &[(1, 700.0), (2, 700.0), (3, 700.0), (20, 700.0)]);
+    assert!(run(&c, &p).flags.is_empty());
+}
+
+#[test]
+fn low_bmi_flag() {
+    // WHO TRS 894: BMI < 18.5 is underweight. 170 cm: 53 kg → 18.34 kg/m².
+    let mut p = participant(Sex::Female, 170.0);
+    p.weights = vec![weigh(day(0), 55.0), weigh(day(14), 53.0)];
+    let out = run(&ctx(day(0), day(14), None), &p);
+    assert_abs_diff_eq!(
+        out.scalar("bmi_current_kg_m2").unwrap(),
+        53.0 / 2.89,
+        epsilon = 1e-12
+    );
+    assert_eq!(out.text("bmi_category_current"), Some("underweight"));
+    assert_eq!(out.text("bmi_category_baseline"), Some("normal"));
+    assert_eq!(codes(&out), vec!["low_bmi"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    // 18.5 exactly (53.4665 kg at 1.70 m) is not low.
+    p.weights[1] = weigh(day(14), 18.5 * 2.89);
+    assert!(run(&ctx(day(0), day(14), None), &p).flags.is_empty());
+}
+
+fn lab(k: i64, test: LabTest, value: f64, unit: &str, as_written: f64) -> LabResult {
+    LabResult {
+        date: day(k),
+        test,
+        value,
+        unit_as_written: unit.into(),
+        value_as_written: as_written,
+    }
+}
+
+#[test]
+fn labs_table_and_lab_flags() {
+    let mut p = steady_loser();
+    p.profile.sex = Sex::Male;
+    p.labs = vec![
+        lab(1, LabTest::Hba1c, 7.0, "%", 7.0),
+        lab(1, LabTest::FastingGlucose, 7.0, "mmol/L", 7.0),
+        lab(2, LabTest::Waist, 103.0, "cm", 103.0),
+        lab(2, LabTest::SystolicBp, 128.0, "mmHg", 128.0),
+        lab(30, LabTest::Hba1c, 6.1, "%", 6.1),
+        lab(90, LabTest::Hba1c, 5.2, "%", 5.2), // after period.to: ignored
+    ];
+    let out = run(&ctx(day(0), day(40), None), &p);
+    let t = out.table("labs").unwrap();
+    let names: Vec<&str> = t.columns.iter().map(|c| c.name.as_str()).collect();
+    assert_eq!(
+        names,
+        [
+            "date",
+            "test",
+            "value",
+            "unit",
+            "value_alt",
+            "unit_alt",
+            "category",
+            "eag_mg_dl"
+        ]
+    );
+    assert_eq!(t.rows.len(), 5);
+    let row = |i: usize| text_cells(&t.rows[i]);
+    // HbA1c 7.0 % = 53.01 mmol/mol (Hoelzel et al. 2004 master equation, [D]); eAG 154.2 mg/dL
+    // (Nathan et al. 2008, Diabetes Care 31:1473); >= 6.5 % diabetes range (ADA 2025 §2).
+    assert_eq!(row(0)[..4], ["2027-03-02", "hba1c", "7", "%"]);
+    assert_abs_diff_eq!(num(&t.rows[0][4]), 53.01, epsilon = 0.005);
+    assert_eq!(row(0)[5..7], ["mmol/mol", "diabetes_range"]);
+    assert_abs_diff_eq!(num(&t.rows[0][7]), 154.2, epsilon = 1e-9);
+    // Fasting glucose 7.0 mmol/L = 126.1 mg/dL: diabetes range (ADA 2025 §2); no eAG.
+    assert_eq!(
+        row(1)[..4],
+        ["2027-03-02", "fasting_glucose", "7", "mmol/L"]
+    );
+    assert_abs_diff_eq!(num(&t.rows[1][4]), 126.112, epsilon = 1e-9);
+    assert_eq!(row(1)[5..8], ["mg/dL", "diabetes_range", ""]);
+    // Waist 103 cm (40.55 in, exact 2.54 cm/in) in a man: > 102 cm (WHO 2008, from memory).
+    assert_abs_diff_eq!(num(&t.rows[2][4]), 103.0 / 2.54, epsilon = 1e-12);
+    assert_eq!(row(2)[5..7], ["in", "substantially_increased_risk"]);
+    // Blood pressure is reported, not classified.
+    assert_eq!(
+        row(3)[1..],
+        ["systolic_bp", "128", "mmHg", "", "", "recorded", ""]
+    );
+    assert_eq!(row(4)[6], "prediabetes_range");
+
+    // Flags judge the latest value of each test: HbA1c 6.1 % (prediabetes range, Notice),
+    // fasting glucose 7.0 mmol/L (diabetes range, Clinical).
+    let mut got: Vec<(&str, FlagSeverity)> = out
+        .flags
+        .iter()
+        .map(|f| (f.code.as_str(), f.severity))
+        .collect();
+    got.sort();
+    assert_eq!(
+        got,
+        vec![
+            ("lab_diabetes_range", FlagSeverity::Clinical),
+            ("lab_prediabetes_range", FlagSeverity::Notice),
+        ]
+    );
+    for f in &out.flags {
+        assert!(f.message.contains("range"), "{}", f.message);
+        assert!(!f.message.contains("has diabetes"), "{}", f.message);
+        assert!(f.message.contains("not a diagnosis"), "{}", f.message);
+    }
+}
+
+fn num(c: &Cell) -> f64 {
+    match c {
+        Cell::Number(x) => *x,
+        other => panic!("expected a number, found {other:?}"),
+    }
+}
+
+#[test]
+fn medication_review_with_glucose_lowering_medicine() {
+    let mut p = steady_loser();
+    p.profile.flags = vec!["glucose-lowering-medication".into()];
+    let c = |t| ctx(day(0), day(30), Some(t));
+    // Steady 0.875 kg/week and no intake log: nothing to review.
+    let steady = trend_output(30, 30, -0.875, |k| 100.0 - 0.125 * k as f64);
+    assert!(run(&c(steady.clone()), &p).flags.is_empty());
+    // Fast loss: fast_loss and medication_review, both Clinical.
+    let fast = trend_output(30, 30, -1.4, |k| 100.0 - 0.2 * k as f64);
+    let out = run(&c(fast), &p);
+    assert_eq!(codes(&out), vec!["fast_loss", "medication_review"]);
+    assert!(
+        out.flags
+            .iter()
+            .all(|f| f.severity == FlagSeverity::Clinical)
+    );
+    assert!(
+        out.flags[1].message.contains("fast weight loss"),
+        "{}",
+        out.flags[1].message
+    );
+    // Low intake alone also asks for a review.
+    let p2 = with_intake(
+        p.clone(),
+        &[(1, 1000.0), (2, 1000.0), (3, 1000.0), (4, 1000.0)],
+    );
+    assert_eq!(
+        codes(&run(&c(steady), &p2)),
+        vec!["low_intake", "medication_review"]
+    );
+    // Without the profile flag, fast loss raises no medication review.
+    p.profile.flags.clear();
+    let fast = trend_output(30, 30, -1.4, |k| 100.0 - 0.2 * k as f64);
+    assert_eq!(codes(&run(&c(fast), &p)), vec!["fast_loss"]);
+}
+
+#[test]
+fn falls_back_to_weigh_ins_without_a_trend() {
+    let mut p = participant(Sex::Male, 180.0);
+    p.weights = vec![
+        weigh(day(0), 100.0),
+        weigh(day(7), 98.0),
+        weigh(day(14), 96.5),
+        weigh(day(14), 96.9), // same day: mean 96.7
+        weigh(day(21), 95.0),
+        weigh(day(28), 94.5),
+        weigh(day(60), 80.0), // after period.to
+    ];
+    let out = run(&ctx(day(14), day(28), None), &p);
+    assert_eq!(out.text("current_weight_source"), Some("weigh_ins"));
+    assert_eq!(out.scalar("baseline_weight_kg"), Some(100.0));
+    assert_eq!(out.scalar("current_weight_kg"), Some(94.5));
+    assert!(
+        out.scalar_full("current_weight_kg")
+            .unwrap()
+            .lower
+            .is_none()
+    );
+    assert_abs_diff_eq!(out.scalar("change_percent").unwrap(), -5.5, epsilon = 1e-12);
+    // Least-squares slope over the period's days 14, 21, 28 (96.7, 95.0, 94.5):
+    // Sxy = (−7)(96.7 − 95.4) + 7(94.5 − 95.4) = −15.4, Sxx = 98 → −0.15714 kg/day = −1.1 kg/wk.
+    assert_abs_diff_eq!(
+        out.scalar("rate_kg_per_week").unwrap(),
+        -1.1,
+        epsilon = 1e-12
+    );
+    assert_abs_diff_eq!(
+        out.scalar("max_loss_percent").unwrap(),
+        5.5,
+        epsilon = 1e-12
+    );
+    // Milestones from the daily mean weigh-ins: 3 % (97 kg) first on day 14, 5 % (95) on day 21.
+    let t = out.table("milestones").unwrap();
+    let reached: Vec<Vec<String>> = t.rows.iter().map(|r| text_cells(r)[2..].to_vec()).collect();
+    assert_eq!(
+        reached,
+        vec![
+            vec!["yes", "2027-03-15"],
+            vec!["yes", "2027-03-22"],
+            vec!["no", ""],
+            vec!["no", ""],
+        ]
+    );
+    // Interpolated weigh-ins fall 5.5 kg in 28 days; the fastest 21-day span (days 0–21) is
+    // 5.0 kg in 3 weeks = 1.67 kg/week, above the limit.
+    assert_eq!(codes(&out), vec!["fast_loss"]);
+}
+
+#[test]
+fn no_weigh_ins_gives_missing_values_and_a_note() {
+    let p = participant(Sex::Female, 160.0);
+    let out = run(&ctx(day(0), day(30), None), &p);
+    for name in [
+        "baseline_weight_kg",
+        "current_weight_kg",
+        "change_percent",
+        "bmi_current_kg_m2",
+    ] {
+        assert_eq!(out.scalar(name), None, "{name}");
+    }
+    assert_eq!(out.text("weight_change_category"), None);
+    let t = out.table("milestones").unwrap();
+    assert!(
+        t.rows
+            .iter()
+            .all(|r| r[2] == Cell::Text("no".into()) && r[1] == Cell::Empty)
+    );
+    assert_eq!(codes(&out), vec!["insufficient_data"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Info);
+}
