@@ -22,6 +22,26 @@
 //! Weight outcomes use every weigh-in up to `period.to`, including weigh-ins after a
 //! withdrawal (a follow-up weight is still a weight).
 //!
+//! # Flags
+//!
+//! Severity `clinical` means "for review by a licensed clinician"; messages describe, never
+//! diagnose.
+//!
+//! * `fast_loss` (clinical): over some span of `fast_loss_span_days` (21) consecutive days up to
+//!   `period.to`, the daily trend level fell faster than `fast_loss_kg_per_week` (1 kg/week;
+//!   "about 1 kg (2 lb) a week sustained", NIH/NHLBI 1998, from memory). Days between trend
+//!   points are filled by linear interpolation. The message names the most recent such span.
+//! * `very_low_intake` (clinical) / `low_intake` (notice): the mean of the logged intake days in
+//!   the reporting period (on or after enrolment; at least [`MIN_INTAKE_DAYS`] days) is below
+//!   `very_low_intake` (800 kcal/d, VLCD, NIH/NHLBI 1998, from memory) or below the sex-specific
+//!   floor (1200 women / 1500 men kcal/d, common practice). Only the more serious one is raised.
+//! * `low_bmi` (clinical): current BMI in the WHO underweight class (< 18.5 kg/m²).
+//! * `lab_diabetes_range` (clinical) / `lab_prediabetes_range` (notice): judged on the latest
+//!   value up to `period.to` of each test (fasting glucose, HbA1c).
+//! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
+//!   `fast_loss`, `low_intake` or `very_low_intake` was raised (risk of low blood sugar).
+//! * `insufficient_data` (info): no weigh-in yet.
+//!
 //! # Cut points
 //!
 //! All categories use half-open intervals, so that every value falls in exactly one class
@@ -65,7 +85,7 @@ fn at_least(x: f64, cut: f64) -> bool {
     x >= cut - CUT_EPS
 }
 
-/// Weight, series and flags of weight outcomes, lab categories and safety flags.
+/// Weight outcomes, milestones, lab categories and clinician-review flags.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct OutcomesModule;
 
