@@ -18,6 +18,7 @@
 //! three times on Monday should not give Monday three times the weight of Tuesday.
 
 #![forbid(unsafe_code)]
+#![warn(missing_docs)]
 
 pub mod llt;
 pub mod plateau;

@@ -236,18 +236,18 @@ fn filter_core(
     let mut prev_t: Option<f64> = None;
     let mut seen = 0usize;
     for (&t, &y) in times.iter().zip(values) {
-        // Predict (the first step uses the prior as its prediction).
+        // Predict (the first step uses the prior as its prediction). T P Tᵀ + Q written out for
+        // T = [[1, Δ], [0, 1]]: this loop runs ~30 times per participant during estimation.
         let (a_pred, p_pred) = match prev_t {
             None => (a, p),
             Some(t0) => {
-                let delta = t - t0;
-                let tm = transition(delta);
-                let a_pred = mat_vec(&tm, &a);
-                let p_pred = mat_add(
-                    &mat_mul(&mat_mul(&tm, &p), &transpose(&tm)),
-                    &process_noise(delta, params.q),
-                );
-                (a_pred, symmetrize(p_pred))
+                let d = t - t0;
+                let qd = params.q * d;
+                let a_pred = [a[0] + d * a[1], a[1]];
+                let p01 = p[0][1] + d * p[1][1] + qd * d / 2.0;
+                let p00 = p[0][0] + d * (2.0 * p[0][1] + d * p[1][1]) + qd * d * d / 3.0;
+                let p11 = p[1][1] + qd;
+                (a_pred, [[p00, p01], [p01, p11]])
             }
         };
         prev_t = Some(t);
@@ -274,18 +274,18 @@ fn filter_core(
                 sums.skipped += 1;
                 sums.sum_log_f += f.ln();
             } else {
-                // Joseph-form update: keeps P symmetric and positive with a diffuse prior.
+                // P − K Z P written so that the level variance needs no subtraction
+                // (1 − P⁻₁₁/F = σ²_ε/F): with a diffuse prior P⁻₁₁ ≈ F ≈ κ and the naive
+                // difference would lose the digits that matter.
+                let r = params.sigma2_eps / f;
                 let k = [p_pred[0][0] / f, p_pred[1][0] / f];
                 let a_new = [a_pred[0] + k[0] * v, a_pred[1] + k[1] * v];
-                let i_kz = [[1.0 - k[0], 0.0], [-k[1], 1.0]];
-                let mut p_new = mat_mul(&mat_mul(&i_kz, &p_pred), &transpose(&i_kz));
-                let s2 = params.sigma2_eps;
-                p_new[0][0] += k[0] * k[0] * s2;
-                p_new[0][1] += k[0] * k[1] * s2;
-                p_new[1][0] += k[1] * k[0] * s2;
-                p_new[1][1] += k[1] * k[1] * s2;
+                let p00 = p_pred[0][0] * r;
+                let p01 = p_pred[0][1] * r;
+                let p11 = p_pred[1][1] - p_pred[0][1] * p_pred[0][1] / f;
+                let p_new = [[p00, p01], [p01, p11]];
                 step.filtered_mean = a_new;
-                step.filtered_cov = symmetrize(p_new);
+                step.filtered_cov = p_new;
                 step.status = StepStatus::Used;
                 if !diffuse {
                     sums.kept += 1;
@@ -316,8 +316,9 @@ fn log_lik_from_sums(s: &LikSums, z_cap: f64) -> f64 {
 ///
 /// # Formula
 /// Predict `a⁻ = T a`, `P⁻ = T P Tᵀ + Q`; with `Z = [1, 0]`: `v = y − Z a⁻`,
-/// `F = Z P⁻ Zᵀ + σ²_ε`, `K = P⁻ Zᵀ / F`, `a = a⁻ + K v`,
-/// `P = (I − K Z) P⁻ (I − K Z)ᵀ + K σ²_ε Kᵀ` (Joseph form of `P⁻ − K Z P⁻`) (REFERENCE §7.2a).
+/// `F = Z P⁻ Zᵀ + σ²_ε`, `K = P⁻ Zᵀ / F`, `a = a⁻ + K v`, `P = P⁻ − K Z P⁻`
+/// (REFERENCE §7.2a), written element-wise as `P₁₁ = P⁻₁₁·σ²_ε/F`, `P₁₂ = P⁻₁₂·σ²_ε/F`,
+/// `P₂₂ = P⁻₂₂ − (P⁻₁₂)²/F` so that a diffuse prior costs no digits in the level variance.
 /// Log-likelihood (prediction-error decomposition, Harvey 1989):
 /// `ℓ = −½ Σ_{t > d} (ln 2π + ln F_t + v_t²/F_t)`, where the first `d = 2` observations form the
 /// diffuse part and are left out.
@@ -454,8 +455,17 @@ impl SmoothedRun {
         if span <= 0.0 {
             return None;
         }
-        let c = self.cross_cov(s, e);
-        let var = (self.cov[s][0][0] + self.cov[e][0][0] - 2.0 * c[0][0]).max(0.0);
+        // Only Cov(μ_s, μ_e) is needed: carry the first row of J_s ⋯ J_{e−1} (half the work
+        // of the full product; this runs once per sliding window).
+        let mut row = [1.0, 0.0];
+        for g in &self.gain[s..e] {
+            row = [
+                row[0] * g[0][0] + row[1] * g[1][0],
+                row[0] * g[0][1] + row[1] * g[1][1],
+            ];
+        }
+        let cov_se = row[0] * self.cov[e][0][0] + row[1] * self.cov[e][1][0];
+        let var = (self.cov[s][0][0] + self.cov[e][0][0] - 2.0 * cov_se).max(0.0);
         Some((
             (self.mean[e][0] - self.mean[s][0]) / span,
             var.sqrt() / span,
@@ -564,15 +574,15 @@ fn first_value(values: &[Option<f64>]) -> f64 {
 /// form `σ̂²(r) = mean(v_t²/F*_t)` over the non-diffuse, non-skipped innovations (F* computed at
 /// unit scale), clamped to the bounds [`SIGMA_EPS_BOUNDS_KG`] (the profile is unimodal in σ², so
 /// clamping gives the constrained maximum). `r` is then chosen by maximising the profile
-/// log-likelihood over `log10 r ∈ [−9, −1]` on a half-decade grid (17 points), refined by 10
-/// golden-section steps between the neighbours of the best grid point (to ±0.01 decade).
+/// log-likelihood over `log10 r ∈ [−9, −1]` on a one-decade grid (9 points), refined by 10
+/// golden-section steps between the neighbours of the best grid point (to ±0.02 decade).
 ///
 /// # Remarks
 /// The outlier screen inside the likelihood uses the robust preliminary scale
 /// [`robust_noise_sd`] of the observed values, so that an outlier cannot inflate the scale
 /// that is meant to catch it. Fewer than 10 observations (8 non-diffuse innovations) are too
 /// few to estimate both variances: then r = [`DEFAULT_SNR`] and only σ²_ε is estimated; fewer
-/// than 5 observations use both defaults. About 28 filter passes over the observation times.
+/// than 5 observations use both defaults. About 21 filter passes over the observation times.
 pub fn estimate_params(times: &[f64], values: &[Option<f64>], outlier_z: f64) -> ParamFit {
     let observed: Vec<f64> = values.iter().flatten().copied().collect();
     let n = observed.len();
@@ -600,7 +610,7 @@ pub fn estimate_params(times: &[f64], values: &[Option<f64>], outlier_z: f64) ->
         };
     }
     let eval = |log_r: f64| profile(times, values, 10f64.powf(log_r), sigma0, outlier_z);
-    let grid: Vec<f64> = (0..17).map(|i| -9.0 + 0.5 * i as f64).collect();
+    let grid: Vec<f64> = (0..9).map(|i| -9.0 + i as f64).collect();
     let mut best = (f64::NEG_INFINITY, 0usize);
     for (i, &g) in grid.iter().enumerate() {
         let (ll, _) = eval(g);

@@ -89,17 +89,14 @@ pub struct WindowVerdict {
 /// that hold at least one.
 pub fn coverage(has_obs: &[bool], s: usize, e: usize) -> (usize, usize) {
     let mut days = 0;
-    let mut blocks = Vec::new();
+    let mut blocks: u128 = 0; // bit b set: block b has a weigh-in (windows are ≤ 84 days)
     for (d, &h) in has_obs.iter().enumerate().take(e + 1).skip(s) {
         if h {
             days += 1;
-            let b = (d - s) / 7;
-            if !blocks.contains(&b) {
-                blocks.push(b);
-            }
+            blocks |= 1u128 << ((d - s) / 7).min(127);
         }
     }
-    (days, blocks.len())
+    (days, blocks.count_ones() as usize)
 }
 
 /// Classifies the window `[s, e]` of the smoothed daily trend.

@@ -1,0 +1,416 @@
+//! Property tests on synthetic weigh-ins made by a fixed-seed generator written here, so every
+//! run sees the same data. The truths (slopes, plateau) are the generator's own parameters.
+
+use chrono::NaiveDate;
+use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::{
+    Cell, MetricModule, ModuleContext, ModuleOutput, ParticipantData, Period, Profile, ProgramInfo,
+    Sex, Targets, UnitSystem, WeighIn,
+};
+use cohortpress_metric_trend::TrendModule;
+use std::collections::BTreeMap;
+
+/// SplitMix64 (Steele, Lea & Flood 2014) with Box–Muller normals: small, fixed-seed, enough for
+/// test data.
+struct Rng(u64);
+
+impl Rng {
+    fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    /// Uniform in (0, 1).
+    fn uniform(&mut self) -> f64 {
+        ((self.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
+    }
+    fn normal(&mut self) -> f64 {
+        let (u1, u2) = (self.uniform(), self.uniform());
+        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
+    }
+}
+
+fn day0() -> NaiveDate {
+    NaiveDate::from_ymd_opt(2027, 3, 1).unwrap()
+}
+
+fn day(i: i64) -> NaiveDate {
+    day0() + chrono::Duration::days(i)
+}
+
+fn participant(weights: &[(i64, f64)]) -> ParticipantData {
+    ParticipantData {
+        profile: Profile {
+            id: "T-001".into(),
+            name: None,
+            sex: Sex::Female,
+            birth_date: None,
+            age_years: 45.0,
+            height: Length::from_cm(168.0),
+            enrolled: day0(),
+            withdrew: None,
+            groups: BTreeMap::new(),
+            body_fat_percent: None,
+            targets: Targets::default(),
+            flags: vec![],
+        },
+        weights: weights
+            .iter()
+            .map(|&(d, kg)| WeighIn {
+                date: day(d),
+                time: None,
+                weight: Mass::from_kg(kg),
+                source: None,
+            })
+            .collect(),
+        intake: vec![],
+        activity: vec![],
+        sessions: vec![],
+        labs: vec![],
+    }
+}
+
+fn run(weights: &[(i64, f64)], to: i64) -> ModuleOutput {
+    let module = TrendModule;
+    let settings = module
+        .spec()
+        .resolve_settings(&serde_json::Value::Null)
+        .unwrap();
+    let ctx = ModuleContext {
+        program: ProgramInfo {
+            id: "demo".into(),
+            title: "Demo".into(),
+            start: day0(),
+            end: day(364),
+            units: UnitSystem::Metric,
+            targets: Targets::default(),
+        },
+        period: Period {
+            from: day0(),
+            to: day(to),
+        },
+        as_of: day(to),
+        settings,
+        earlier: BTreeMap::new(),
+    };
+    module.compute(&ctx, &participant(weights)).unwrap()
+}
+
+fn kinds(out: &ModuleOutput) -> Vec<(String, String, String)> {
+    let t = out.table("periods").unwrap();
+    t.rows
+        .iter()
+        .map(|r| match (&r[0], &r[1], &r[2]) {
+            (Cell::Text(k), Cell::Text(s), Cell::Text(e)) => (k.clone(), s.clone(), e.clone()),
+            other => panic!("unexpected cells {other:?}"),
+        })
+        .collect()
+}
+
+/// Linear loss at `kg_per_week` from 95 kg, noise SD `sd`, a weigh-in on each day with
+/// probability `p` (irregular spacing), over `days` days.
+fn linear(seed: u64, days: i64, kg_per_week: f64, sd: f64, p: f64) -> Vec<(i64, f64)> {
+    let mut rng = Rng(seed);
+    (0..days)
+        .filter_map(|d| {
+            let keep = rng.uniform() < p || d == 0;
+            let y = 95.0 + kg_per_week / 7.0 * d as f64 + sd * rng.normal();
+            keep.then_some((d, y))
+        })
+        .collect()
+}
+
+#[test]
+fn known_linear_loss_is_recovered_within_its_interval() {
+    // Truth: −0.5 kg/wk, σ = 0.6 kg, about 4 weigh-ins a week at irregular days, 16 weeks.
+    for seed in [1u64, 2, 3] {
+        let w = linear(seed, 112, -0.5, 0.6, 0.55);
+        let out = run(&w, 111);
+        let s = out.scalar_full("slope_kg_per_week").unwrap();
+        let (v, lo, hi) = (s.value.unwrap(), s.lower.unwrap(), s.upper.unwrap());
+        assert!(
+            lo <= -0.5 && -0.5 <= hi,
+            "seed {seed}: [{lo}, {hi}] misses −0.5 (estimate {v})"
+        );
+        assert!(
+            hi - lo < 0.6,
+            "seed {seed}: interval [{lo}, {hi}] is uselessly wide"
+        );
+        let ts = out.scalar_full("theil_sen_slope_kg_per_week").unwrap();
+        assert!(
+            ts.lower.unwrap() <= -0.5 && -0.5 <= ts.upper.unwrap(),
+            "seed {seed}: Theil–Sen {ts:?}"
+        );
+        let sd = out.scalar("noise_sd_kg").unwrap();
+        assert!((0.45..=0.8).contains(&sd), "seed {seed}: noise SD {sd}");
+        // The trend on the last day is within its band of the true level.
+        let cur = out.scalar_full("current_weight_kg").unwrap();
+        let last_day = w.last().unwrap().0 as f64;
+        let truth = 95.0 - 0.5 / 7.0 * last_day;
+        assert!(
+            cur.lower.unwrap() <= truth && truth <= cur.upper.unwrap(),
+            "seed {seed}: {cur:?} vs {truth}"
+        );
+        assert_eq!(out.text("status"), Some("losing"), "seed {seed}");
+        assert_eq!(out.scalar("weigh_ins_used"), Some(w.len() as f64));
+        assert_eq!(out.scalar("outliers_ignored"), Some(0.0));
+        // A steady loss gives loss periods and no plateau.
+        assert!(
+            kinds(&out)
+                .iter()
+                .all(|k| k.0 != "plateau" && k.0 != "regain"),
+            "seed {seed}: {:?}",
+            kinds(&out)
+        );
+        assert!(kinds(&out).iter().any(|k| k.0 == "loss"));
+    }
+}
+
+#[test]
+fn series_cover_every_day_from_first_to_last_weigh_in() {
+    let w = linear(7, 60, -0.5, 0.6, 0.5);
+    let out = run(&w, 70);
+    let trend = out.series("weight_trend").unwrap();
+    let (first, last) = (w[0].0, w.last().unwrap().0);
+    assert_eq!(trend.points.len() as i64, last - first + 1);
+    assert_eq!(trend.points[0].date, day(first));
+    assert_eq!(trend.points.last().unwrap().date, day(last));
+    assert_eq!(trend.step, "daily");
+    for p in &trend.points {
+        assert!(p.lower.unwrap() < p.value && p.value < p.upper.unwrap());
+    }
+    assert_eq!(
+        out.series("weight_slope").unwrap().points.len(),
+        trend.points.len()
+    );
+    assert_eq!(out.series("weigh_ins").unwrap().points.len(), w.len());
+    assert_eq!(
+        out.scalar("days_since_last_weigh_in"),
+        Some((70 - last) as f64)
+    );
+}
+
+#[test]
+fn flat_weeks_after_a_six_percent_loss_are_a_plateau() {
+    // 100 kg, 6 % lost linearly over 10 weeks, then flat for 6 weeks; daily weigh-ins, σ 0.5 kg.
+    let mut rng = Rng(42);
+    let w: Vec<(i64, f64)> = (0..112)
+        .map(|d| {
+            let truth = if d < 70 {
+                100.0 - 6.0 * d as f64 / 70.0
+            } else {
+                94.0
+            };
+            (d, truth + 0.5 * rng.normal())
+        })
+        .collect();
+    let out = run(&w, 111);
+    assert_eq!(out.text("status"), Some("plateau"));
+    let k = kinds(&out);
+    let plateau = k
+        .iter()
+        .find(|k| k.0 == "plateau")
+        .unwrap_or_else(|| panic!("no plateau in {k:?}"));
+    assert_eq!(plateau.2, "2027-06-20"); // day 111, the last day
+    // It starts after the loss ended (day 70 = 2027-05-10), not during the loss.
+    assert!(
+        plateau.1.as_str() >= "2027-05-03",
+        "plateau starts {}",
+        plateau.1
+    );
+    assert!(
+        k.iter().any(|k| k.0 == "loss" && k.1 == "2027-03-01"),
+        "{k:?}"
+    );
+    let s = out.scalar_full("slope_kg_per_week").unwrap();
+    assert!(
+        s.lower.unwrap() > -0.235 && s.upper.unwrap() < 0.235,
+        "{s:?}"
+    );
+}
+
+#[test]
+fn flat_weight_without_a_prior_loss_is_stable_not_plateau() {
+    let mut rng = Rng(5);
+    let w: Vec<(i64, f64)> = (0..56).map(|d| (d, 88.0 + 0.5 * rng.normal())).collect();
+    let out = run(&w, 55);
+    assert_eq!(out.text("status"), Some("stable"));
+    assert!(
+        kinds(&out).iter().all(|k| k.0 != "plateau"),
+        "{:?}",
+        kinds(&out)
+    );
+}
+
+#[test]
+fn regain_after_a_loss_is_a_regain_period() {
+    // 8 weeks losing 0.8 kg/wk from 100 kg, then 6 weeks gaining 0.6 kg/wk; daily, σ 0.5.
+    let mut rng = Rng(11);
+    let w: Vec<(i64, f64)> = (0..98)
+        .map(|d| {
+            let x = d as f64;
+            let truth = if d < 56 {
+                100.0 - 0.8 / 7.0 * x
+            } else {
+                93.6 + 0.6 / 7.0 * (x - 56.0)
+            };
+            (d, truth + 0.5 * rng.normal())
+        })
+        .collect();
+    let out = run(&w, 97);
+    assert_eq!(out.text("status"), Some("regaining"));
+    assert!(
+        kinds(&out).iter().any(|k| k.0 == "regain"),
+        "{:?}",
+        kinds(&out)
+    );
+}
+
+#[test]
+fn sparse_weigh_ins_give_insufficient_data() {
+    // One weigh-in every 10 days for 3 months: never 8 in a 4-week window.
+    let mut rng = Rng(3);
+    let w: Vec<(i64, f64)> = (0..10)
+        .map(|k| (10 * k, 92.0 - 0.05 * k as f64 + 0.6 * rng.normal()))
+        .collect();
+    let out = run(&w, 90);
+    assert_eq!(out.text("status"), Some("insufficient_data"));
+    let k = kinds(&out);
+    assert!(
+        !k.is_empty() && k.iter().all(|k| k.0 == "insufficient_data"),
+        "{k:?}"
+    );
+    // A trend is still drawn, only no verdict is given.
+    assert_eq!(out.series("weight_trend").unwrap().points.len(), 91);
+    assert!(out.flags.iter().all(|f| f.code != "insufficient_data"));
+}
+
+#[test]
+fn a_long_silence_before_the_period_end_gives_no_verdict() {
+    let w = linear(9, 60, -0.5, 0.6, 0.8);
+    let out = run(&w, 59 + 45);
+    assert_eq!(out.text("status"), Some("insufficient_data"));
+    assert_eq!(out.scalar("slope_kg_per_week"), None);
+    assert!(out.scalar("current_weight_kg").is_some());
+}
+
+#[test]
+fn a_single_huge_outlier_barely_moves_the_trend() {
+    let clean = linear(21, 84, -0.5, 0.6, 0.7);
+    let mut dirty = clean.clone();
+    let mid = dirty.len() / 2;
+    dirty[mid].1 += 15.0; // e.g. weighed holding a child
+    let a = run(&clean, 83);
+    let b = run(&dirty, 83);
+    assert_eq!(b.scalar("outliers_ignored"), Some(1.0));
+    assert_eq!(a.scalar("outliers_ignored"), Some(0.0));
+    assert_eq!(b.scalar("weigh_ins_used"), Some((clean.len() - 1) as f64));
+    let (ta, tb) = (
+        a.series("weight_trend").unwrap(),
+        b.series("weight_trend").unwrap(),
+    );
+    let worst = ta
+        .points
+        .iter()
+        .zip(&tb.points)
+        .map(|(p, q)| (p.value - q.value).abs())
+        .fold(0.0, f64::max);
+    assert!(worst <= 0.2, "trend moved by {worst} kg");
+    assert!(
+        b.series("weigh_ins")
+            .unwrap()
+            .points
+            .iter()
+            .all(|p| p.value < 100.0)
+    );
+}
+
+#[test]
+fn data_after_the_period_end_are_not_used() {
+    let w = linear(4, 100, -0.5, 0.6, 0.8);
+    let cut: Vec<(i64, f64)> = w.iter().copied().filter(|p| p.0 <= 60).collect();
+    let a = run(&w, 60);
+    let b = run(&cut, 60);
+    assert_eq!(a, b);
+    assert!(
+        a.series("weight_trend")
+            .unwrap()
+            .points
+            .last()
+            .unwrap()
+            .date
+            <= day(60)
+    );
+}
+
+#[test]
+fn several_weigh_ins_on_one_day_are_averaged() {
+    let mut w = linear(8, 56, -0.5, 0.6, 0.8);
+    let base = run(&w, 55);
+    // Split each weigh-in into two readings 0.4 kg apart with the same mean.
+    let split: Vec<(i64, f64)> = w
+        .drain(..)
+        .flat_map(|(d, y)| [(d, y - 0.2), (d, y + 0.2)])
+        .collect();
+    let two = run(&split, 55);
+    let (ta, tb) = (
+        base.series("weight_trend").unwrap(),
+        two.series("weight_trend").unwrap(),
+    );
+    for (p, q) in ta.points.iter().zip(&tb.points) {
+        assert!((p.value - q.value).abs() < 1e-9);
+    }
+    assert_eq!(
+        two.scalar("weigh_ins_used"),
+        Some(2.0 * base.scalar("weigh_ins_used").unwrap())
+    );
+}
+
+#[test]
+fn empty_and_tiny_series_give_missing_values_not_a_panic() {
+    for w in [
+        vec![],
+        vec![(0, 90.0)],
+        vec![(0, 90.0), (3, 89.5)],
+        vec![(0, 90.0), (0, 89.0), (0, 90.5)],
+    ] {
+        let out = run(&w, 30);
+        assert_eq!(out.scalar("current_weight_kg"), None);
+        assert_eq!(out.scalar("slope_kg_per_week"), None);
+        assert_eq!(out.scalar("theil_sen_slope_kg_per_week"), None);
+        assert_eq!(out.scalar("noise_sd_kg"), None);
+        assert_eq!(out.scalar("weigh_ins_used"), Some(w.len() as f64));
+        assert_eq!(out.text("status"), Some("insufficient_data"));
+        assert!(out.flags.iter().any(|f| f.code == "insufficient_data"));
+        assert!(out.series("weight_trend").unwrap().points.is_empty());
+        assert!(out.table("periods").unwrap().rows.is_empty());
+    }
+    assert_eq!(run(&[], 30).scalar("days_since_last_weigh_in"), None);
+}
+
+#[test]
+fn three_weigh_ins_give_a_trend() {
+    let out = run(&[(0, 90.0), (5, 89.6), (9, 89.5)], 9);
+    assert!(out.scalar("current_weight_kg").is_some());
+    assert_eq!(out.series("weight_trend").unwrap().points.len(), 10);
+    assert!(out.flags.is_empty());
+}
+
+#[test]
+fn spec_settings_have_defaults_and_ranges() {
+    let spec = TrendModule.spec();
+    assert_eq!(spec.id, "trend");
+    assert!(spec.requires.is_empty());
+    let r = spec.resolve_settings(&serde_json::Value::Null).unwrap();
+    assert_eq!(r["plateau_window_days"], 28);
+    assert_eq!(r["min_weigh_ins"], 8);
+    assert_eq!(r["plateau_band_percent_per_week"], 0.25);
+    assert_eq!(r["min_prior_loss_percent"], 3.0);
+    assert_eq!(r["outlier_z"], 4.0);
+    assert!(
+        spec.resolve_settings(&serde_json::json!({"plateau_window_days": 3}))
+            .is_err()
+    );
+}
