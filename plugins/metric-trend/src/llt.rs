@@ -364,7 +364,7 @@ pub struct SmoothedRun {
 ///
 /// # Formula
 /// `J_t = P_{t|t} Tᵀ (P⁻_{t+1})⁻¹`, `a_{t|n} = a_{t|t} + J_t (a_{t+1|n} − a⁻_{t+1})`,
-/// `P_{t|n} = P_{t|t} + J_t (P_{t+1|n} − P⁻_{t+1}) J_tᵀ` (Durbin & Koopman 2012, §4.4, in
+/// `P_{t|n} = P_{t|t} + J_t (P_{t+1|n} − P⁻_{t+1}) J_tᵀ` (Durbin & Koopman 2012, in
 /// covariance form). The smoothed cross-covariance of two steps `s < e` is
 /// `Cov(x_s, x_e | y) = J_s J_{s+1} ⋯ J_{e−1} P_{e|n}` ([`SmoothedRun::cross_cov`]).
 ///

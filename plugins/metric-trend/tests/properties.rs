@@ -10,7 +10,7 @@ use cohortpress_metric_api::{
 use cohortpress_metric_trend::TrendModule;
 use std::collections::BTreeMap;
 
-/// SplitMix64 (Steele, Lea & Flood 2014) with Box–Muller normals: small, fixed-seed, enough for
+/// SplitMix64 (Steele, Lea & Flood 2014, from memory) with Box–Muller normals: small, fixed-seed, enough for
 /// test data.
 struct Rng(u64);
 
