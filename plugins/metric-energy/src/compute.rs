@@ -11,8 +11,9 @@
 //!   activity (MET − 1)·kg·h per day. Net, because `base_pal` already counts resting energy for
 //!   those minutes.
 //! - **Implied intake** (Hall & Chow 2011): EI = EI₀ + ε·(BW − BW₀) + ρ·dBW/dt + A/(1 − β),
-//!   with BW the trend level at the end of the period, dBW/dt the mean trend slope over the last
-//!   `window_days`, A the net activity (kcal/d) over the same window. The A/(1 − β) term is the
+//!   with BW the mean trend level and dBW/dt the mean trend slope over the last `window_days` of
+//!   the period, A the net activity (kcal/d) over the same window; being linear, this is the
+//!   mean intake over the window. The A/(1 − β) term is the
 //!   same model's answer for exercise: in Hall et al. 2011 the thermic effect and adaptive
 //!   thermogenesis (β = 0.24 together) follow intake, not exercise. The 95 % interval comes from
 //!   the slope's interval (the mean of the daily slope bounds, which is conservative).
@@ -205,9 +206,16 @@ fn t975(df: f64) -> f64 {
         + (5.0 * z.powi(5) + 16.0 * z.powi(3) + 3.0 * z) / (96.0 * df * df)
 }
 
-/// Straight-line fit of weigh-ins in [from, to] when no trend output exists: the fitted level
-/// at the last weigh-in and the slope with a t-based 95 % interval.
-fn ols_fallback(data: &ParticipantData, from: NaiveDate, to: NaiveDate) -> Option<(f64, Band)> {
+/// What the straight-line fallback gives: the fitted level at the last weigh-in, the mean
+/// level over the window, and the slope with a t-based 95 % interval.
+struct LineFit {
+    level_end: f64,
+    level_mean: f64,
+    slope: Band,
+}
+
+/// Straight-line fit of weigh-ins in [from, to] when no trend output exists.
+fn ols_fallback(data: &ParticipantData, from: NaiveDate, to: NaiveDate) -> Option<LineFit> {
     let pts: Vec<(f64, f64)> = data
         .weights
         .iter()
@@ -230,14 +238,15 @@ fn ols_fallback(data: &ParticipantData, from: NaiveDate, to: NaiveDate) -> Optio
     let se = (ssr / (nf - 2.0) / sxx).sqrt();
     let h = t975(nf - 2.0) * se;
     let last_t = pts.last()?.0;
-    Some((
-        a + b * last_t,
-        Band {
+    Some(LineFit {
+        level_end: a + b * last_t,
+        level_mean: my,
+        slope: Band {
             value: b,
             lower: Some(b - h),
             upper: Some(b + h),
         },
-    ))
+    })
 }
 
 fn day_after(d: NaiveDate, n: u64) -> NaiveDate {
@@ -475,11 +484,18 @@ pub(crate) fn run(
         None
     };
     let bw_cur = match &fallback {
-        Some((level, _)) => *level,
+        Some(fit) => fit.level_end,
         None => p.weight_on(to).unwrap_or(bw0),
     };
+    // The mean slope over the window pairs with the mean level over the window: the linear
+    // estimator then gives the mean intake over the window (pairing it with the end weight would
+    // read a decelerating loss as a lower intake).
+    let bw_window = match &fallback {
+        Some(fit) => fit.level_mean,
+        None => mean_band(&p.trend.level, window_from, to).map_or(bw_cur, |b| b.value),
+    };
     let slope: Option<Band> = match &fallback {
-        Some((_, b)) => Some(*b),
+        Some(fit) => Some(fit.slope),
         None => mean_band(&p.trend.slope, window_from, to)
             // Require most of the window to be covered, so a few days do not pass for a month.
             .filter(|_| {
@@ -506,7 +522,7 @@ pub(crate) fn run(
     let logged = logged_mean.filter(|_| logged_days >= MIN_LOGGED_DAYS);
     let met_h_window = p.activity_met_hours(window_from, to);
     let implied: Option<Band> =
-        slope.map(|sl| sl.map(|x| p.implied_intake(bw_cur, x, met_h_window)));
+        slope.map(|sl| sl.map(|x| p.implied_intake(bw_window, x, met_h_window)));
 
     out.push_scalar(
         "rmr_kcal_per_day",

@@ -56,6 +56,18 @@ pub const FORBES_C: f64 = 10.4;
 /// Smallest fat mass the integrator lets the model reach, kg (keeps ln(F/F₀) finite).
 const MIN_FAT_KG: f64 = 0.5;
 
+/// Energy content of a small change in body weight for a person with fat mass `fm_kg`,
+/// kcal per kg of weight.
+///
+/// # Formula
+/// With the Forbes partition the lean fraction of a weight change is p = C/(C + FM)
+/// (Forbes 2000, Ann N Y Acad Sci 904:359), so the energy density is
+/// (1 − p)·ρF + p·ρL (Hall 2008, Int J Obes 32:573, makes the point that it is not constant).
+pub fn energy_density_of_weight_change(fm_kg: f64) -> f64 {
+    let p = FORBES_C / (FORBES_C + fm_kg);
+    (1.0 - p) * RHO_F + p * RHO_L
+}
+
 /// State of the [`HallModel`]: fat mass and adaptive thermogenesis (lean mass follows from fat
 /// mass by the Forbes partition).
 #[derive(Debug, Clone, Copy, PartialEq)]

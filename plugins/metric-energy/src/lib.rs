@@ -18,7 +18,7 @@ pub mod equations;
 
 mod compute;
 
-pub use dynamics::{HallModel, HallState, LinearisedModel};
+pub use dynamics::{HallModel, HallState, LinearisedModel, energy_density_of_weight_change};
 pub use equations::{
     RestingEquation, activity_kcal_gross, activity_kcal_net, cunningham, harris_benedict_revised,
     henry, jackson_2002_body_fat, katch_mcardle, mifflin_st_jeor,
