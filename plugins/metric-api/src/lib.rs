@@ -133,12 +133,18 @@ impl ModuleContext {
 
     /// A numeric setting, or `default` when absent.
     pub fn setting_f64(&self, name: &str, default: f64) -> f64 {
-        self.settings.get(name).and_then(|v| v.as_f64()).unwrap_or(default)
+        self.settings
+            .get(name)
+            .and_then(|v| v.as_f64())
+            .unwrap_or(default)
     }
 
     /// A string setting, or `default` when absent.
     pub fn setting_str<'a>(&'a self, name: &str, default: &'a str) -> &'a str {
-        self.settings.get(name).and_then(|v| v.as_str()).unwrap_or(default)
+        self.settings
+            .get(name)
+            .and_then(|v| v.as_str())
+            .unwrap_or(default)
     }
 }
 
@@ -262,8 +268,10 @@ impl ModuleSpec {
                 ));
                 continue;
             }
-            if let Some(x) = value.as_f64() {
-                if spec.min.is_some_and(|m| x < m) || spec.max.is_some_and(|m| x > m) {
+            if let Some(x) = value.as_f64()
+                && (spec.min.is_some_and(|m| x < m) || spec.max.is_some_and(|m| x > m))
+            {
+                {
                     problems.push(format!(
                         "setting `{}` of module `{}`: {x} is outside {}..={} {}",
                         spec.name,
@@ -274,8 +282,11 @@ impl ModuleSpec {
                     ));
                 }
             }
-            if let (Some(s), false) = (value.as_str(), spec.choices.is_empty()) {
-                if !spec.choices.iter().any(|c| c == s) {
+            if let Some(s) = value.as_str()
+                && !spec.choices.is_empty()
+                && !spec.choices.iter().any(|c| c == s)
+            {
+                {
                     problems.push(format!(
                         "setting `{}` of module `{}`: `{s}` is not one of: {}",
                         spec.name,
@@ -323,7 +334,9 @@ impl std::error::Error for ModuleError {}
 impl ModuleError {
     /// A new error with `message`.
     pub fn new(message: impl Into<String>) -> Self {
-        ModuleError { message: message.into() }
+        ModuleError {
+            message: message.into(),
+        }
     }
 }
 
@@ -338,8 +351,11 @@ pub trait MetricModule: Send + Sync {
     /// `ctx.settings` has been checked against [`MetricModule::spec`] and has every default filled
     /// in. Too little data is not an error: return the output with missing values (`None`) and a
     /// flag saying what was missing. Return an error only when the module cannot run at all.
-    fn compute(&self, ctx: &ModuleContext, data: &ParticipantData)
-    -> Result<ModuleOutput, ModuleError>;
+    fn compute(
+        &self,
+        ctx: &ModuleContext,
+        data: &ParticipantData,
+    ) -> Result<ModuleOutput, ModuleError>;
 }
 
 #[cfg(test)]

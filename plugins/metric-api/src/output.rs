@@ -202,11 +202,19 @@ impl ModuleOutput {
 
     /// Adds a text value.
     pub fn push_text(&mut self, name: &str, value: &str, label: &str) {
-        self.texts.push(TextValue { name: name.into(), value: value.into(), label: label.into() });
+        self.texts.push(TextValue {
+            name: name.into(),
+            value: value.into(),
+            label: label.into(),
+        });
     }
 
     /// Adds a flag.
     pub fn push_flag(&mut self, code: &str, severity: FlagSeverity, message: impl Into<String>) {
-        self.flags.push(Flag { code: code.into(), severity, message: message.into() });
+        self.flags.push(Flag {
+            code: code.into(),
+            severity,
+            message: message.into(),
+        });
     }
 }
