@@ -1,10 +1,27 @@
-//! Participant folders: discovery, `profile.yaml`, the CSV files and their checks. (being written)
+//! Participant folders: discovery, `profile.yaml`, the CSV files and their checks.
+//!
+//! [`discover`] lists the folders under `participants/`; [`load_participant`] reads one folder
+//! (read-only), checks everything and returns the data with every diagnostic. A problem in one
+//! participant never stops the others. The parsers ([`profile`], [`records`]) work on text.
 
-use crate::diag::Diagnostic;
+pub mod profile;
+pub mod quantity;
+pub mod records;
+pub mod table;
+
+use crate::diag::{Diagnostic, Severity};
 use crate::program::Program;
+use crate::program::load::{decode_utf8, is_plain_id, read_bytes};
 use chrono::NaiveDate;
 use cohortpress_metric_api::ParticipantData;
+use records::Window;
 use std::path::PathBuf;
+use table::{CsvOptions, FileCtx};
+
+/// The folder under the program folder that holds participant folders.
+pub const PARTICIPANTS_DIR: &str = "participants";
+/// The required profile file of a participant folder.
+pub const PROFILE_FILE: &str = "profile.yaml";
 
 /// A participant folder found under `participants/`.
 #[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord)]
@@ -39,15 +56,260 @@ pub struct LoadedParticipant {
     pub files: Vec<InputFile>,
 }
 
+impl LoadedParticipant {
+    /// Whether any diagnostic is an error (the participant is then left out).
+    pub fn has_errors(&self) -> bool {
+        self.diagnostics
+            .iter()
+            .any(|d| d.severity == Severity::Error)
+    }
+}
+
 /// Lists the participant folders under `ROOT/participants/`, sorted by name. Entries that are not
 /// usable folders (bad names, files, links) are reported as diagnostics.
 pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
-    let _ = program;
-    (Vec::new(), Vec::new())
+    let base = program.root.join(PARTICIPANTS_DIR);
+    let mut dirs = Vec::new();
+    let mut diags = Vec::new();
+    if !base.is_dir() {
+        diags.push(
+            Diagnostic::error(PARTICIPANTS_DIR, "the participants folder does not exist")
+                .expected(
+                    "a folder `participants/` beside program.yaml, with one folder per participant",
+                )
+                .hint("create it and put each participant's profile.yaml in its own folder"),
+        );
+        return (dirs, diags);
+    }
+    let walker = walkdir::WalkDir::new(&base)
+        .min_depth(1)
+        .max_depth(1)
+        .follow_links(false)
+        .sort_by_file_name();
+    for entry in walker {
+        let entry = match entry {
+            Ok(e) => e,
+            Err(e) => {
+                diags.push(Diagnostic::error(
+                    PARTICIPANTS_DIR,
+                    format!("cannot list the participants folder ({e})"),
+                ));
+                continue;
+            }
+        };
+        let raw_name = entry.file_name();
+        let name = raw_name.to_string_lossy().into_owned();
+        if name.starts_with('.') {
+            continue; // hidden entries (.DS_Store, .git) are not participants
+        }
+        let rel = format!("{PARTICIPANTS_DIR}/{}", printable(&name));
+        let ft = entry.file_type();
+        if ft.is_symlink() {
+            diags.push(
+                Diagnostic::warning(rel, "a link in the participants folder is skipped")
+                    .hint("put the participant's folder itself here, not a link to it"),
+            );
+            continue;
+        }
+        if !ft.is_dir() {
+            diags.push(
+                Diagnostic::warning(rel, "a file in the participants folder is skipped")
+                    .expected("only folders, one per participant")
+                    .hint("move the file into a participant's folder or out of participants/"),
+            );
+            continue;
+        }
+        match raw_name.to_str() {
+            Some(id) if is_plain_id(id) => {
+                dirs.push(ParticipantDir { id: id.to_string(), path: entry.into_path() })
+            }
+            _ => diags.push(
+                Diagnostic::error(rel, "the folder name is not a usable participant id; the folder is skipped")
+                    .expected("letters, digits, `-` and `_` only (at most 64), e.g. `LW-0147`")
+                    .found(format!("`{}`", printable(&name)))
+                    .hint("rename the folder (the id names output files) and set the same `id` in its profile.yaml"),
+            ),
+        }
+    }
+    dirs.sort();
+    (dirs, diags)
 }
 
-/// Loads and checks one participant folder. Data dated after `as_of` are future data.
-pub fn load_participant(program: &Program, dir: &ParticipantDir, as_of: NaiveDate) -> LoadedParticipant {
-    let _ = (program, as_of);
-    LoadedParticipant { id: dir.id.clone(), data: None, diagnostics: Vec::new(), files: Vec::new() }
+/// Shows control characters in a name as escapes so a message cannot be garbled by them.
+fn printable(name: &str) -> String {
+    name.chars()
+        .flat_map(|c| {
+            if c.is_control() {
+                c.escape_default().collect::<Vec<_>>()
+            } else {
+                vec![c]
+            }
+        })
+        .collect()
 }
+
+/// The CSV options of a program.
+pub fn csv_options(program: &Program) -> CsvOptions {
+    CsvOptions {
+        // load_program has checked the delimiter is one ASCII character.
+        delimiter: u8::try_from(program.def.input.delimiter).unwrap_or(b','),
+        date_format: program.def.input.date_format.clone(),
+    }
+}
+
+/// Reads one file of the folder; `None` when it does not exist. Unreadable or non-UTF-8 files
+/// give an error diagnostic.
+fn read_input(
+    dir: &ParticipantDir,
+    name: &str,
+    ctx: &FileCtx,
+    files: &mut Vec<InputFile>,
+    diags: &mut Vec<Diagnostic>,
+) -> Option<Result<String, ()>> {
+    let path = dir.path.join(name);
+    if !path.exists() {
+        return None;
+    }
+    if !path.is_file() {
+        diags.push(ctx.error(format!("`{name}` is not a file; it cannot be read")));
+        return Some(Err(()));
+    }
+    let bytes = match read_bytes(&path) {
+        Ok(b) => b,
+        Err(e) => {
+            diags.push(ctx.error(format!("cannot read the file ({e})")));
+            return Some(Err(()));
+        }
+    };
+    files.push(InputFile {
+        path: ctx.file.clone(),
+        blake3: blake3::hash(&bytes).to_hex().to_string(),
+        bytes: bytes.len() as u64,
+    });
+    match decode_utf8(&bytes, &ctx.file) {
+        Ok(t) => Some(Ok(t.to_string())),
+        Err(d) => {
+            diags.push(d.participant(&ctx.participant));
+            Some(Err(()))
+        }
+    }
+}
+
+/// Files a participant folder may hold.
+const KNOWN_FILES: [&str; 6] = [
+    PROFILE_FILE,
+    "weights.csv",
+    "intake.csv",
+    "activity.csv",
+    "sessions.csv",
+    "labs.csv",
+];
+
+/// Loads and checks one participant folder. Data dated after `as_of` are future data.
+pub fn load_participant(
+    program: &Program,
+    dir: &ParticipantDir,
+    as_of: NaiveDate,
+) -> LoadedParticipant {
+    let id = dir.id.as_str();
+    let rel = |name: &str| format!("{PARTICIPANTS_DIR}/{id}/{name}");
+    let mut diags = Vec::new();
+    let mut files = Vec::new();
+    let opts = csv_options(program);
+
+    // Files the tool does not read but that look like inputs: most likely a misspelt name.
+    if let Ok(entries) = std::fs::read_dir(&dir.path) {
+        let mut names: Vec<String> = entries
+            .filter_map(|e| e.ok())
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .collect();
+        names.sort();
+        for n in names {
+            let lower = n.to_lowercase();
+            let input_like = [".csv", ".yaml", ".yml"].iter().any(|x| lower.ends_with(x));
+            if input_like && !n.starts_with('.') && !KNOWN_FILES.contains(&n.as_str()) {
+                let hint = if lower == "profile.yml" || lower == "profile.yaml" {
+                    "rename it to `profile.yaml` (lowercase, .yaml)".to_string()
+                } else {
+                    format!(
+                        "the files read are {}; check the spelling",
+                        KNOWN_FILES.join(", ")
+                    )
+                };
+                diags.push(
+                    FileCtx::new(id, rel(&n))
+                        .warning(format!(
+                            "`{n}` is not an input file the tool reads; it is ignored"
+                        ))
+                        .hint(hint),
+                );
+            }
+        }
+    }
+
+    let pctx = FileCtx::new(id, rel(PROFILE_FILE));
+    let profile = match read_input(dir, PROFILE_FILE, &pctx, &mut files, &mut diags) {
+        None => {
+            diags.push(
+                pctx.error(format!(
+                    "participant folder `{id}` has no profile.yaml; the participant cannot be used"
+                ))
+                .expected("a profile.yaml with id, sex, birth_date or age, height, enrolled")
+                .hint("add profile.yaml to the folder (see the data contract in the README)"),
+            );
+            None
+        }
+        Some(Err(())) => None,
+        Some(Ok(text)) => {
+            profile::parse_profile(&text, id, &program.info.targets, &pctx, &mut diags)
+        }
+    };
+    // CSV files are checked even when the profile is unusable, so every problem of the folder
+    // is reported in one pass; without a profile only future dates can be checked.
+    let window = Window {
+        enrolled: profile.as_ref().map(|p| p.enrolled),
+        withdrew: profile.as_ref().and_then(|p| p.withdrew),
+        as_of,
+    };
+    macro_rules! csv_file {
+        ($spec:expr, $parse:path) => {{
+            let ctx = FileCtx::new(id, rel($spec.name));
+            match read_input(dir, $spec.name, &ctx, &mut files, &mut diags) {
+                None => Vec::new(),
+                Some(Err(())) => Vec::new(),
+                Some(Ok(text)) => {
+                    $parse(&text, &opts, &ctx, &window, &mut diags).unwrap_or_default()
+                }
+            }
+        }};
+    }
+    let weights = csv_file!(records::WEIGHTS, records::parse_weights);
+    let intake = csv_file!(records::INTAKE, records::parse_intake);
+    let activity = csv_file!(records::ACTIVITY, records::parse_activity);
+    let sessions = csv_file!(records::SESSIONS, records::parse_sessions);
+    let labs = csv_file!(records::LABS, records::parse_labs);
+
+    let has_errors = diags.iter().any(|d| d.severity == Severity::Error);
+    let data = match profile {
+        Some(profile) if !has_errors => Some(ParticipantData {
+            profile,
+            weights,
+            intake,
+            activity,
+            sessions,
+            labs,
+        }),
+        _ => None,
+    };
+    // Stable: diagnostics of one line keep the order they were found in.
+    diags.sort_by(|a, b| (a.file.as_str(), a.line).cmp(&(b.file.as_str(), b.line)));
+    LoadedParticipant {
+        id: dir.id.clone(),
+        data,
+        diagnostics: diags,
+        files,
+    }
+}
+
+#[cfg(test)]
+mod tests;

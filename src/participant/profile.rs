@@ -1,0 +1,377 @@
+//! `profile.yaml`: who the participant is. Required; any error here makes the participant
+//! unusable (the energy equations need sex, age and height; every date check needs enrolment).
+
+use super::quantity::parse_length;
+use super::table::FileCtx;
+use crate::diag::Diagnostic;
+use crate::program::TargetsDef;
+use crate::program::load::key_line;
+use chrono::{Datelike, NaiveDate};
+use cohortpress_metric_api::{Profile, Sex, Targets};
+use serde::Deserialize;
+use std::collections::BTreeMap;
+
+/// `profile.yaml` as written.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProfileDef {
+    /// Must equal the folder name.
+    pub id: String,
+    /// Display name (own report only).
+    #[serde(default)]
+    pub name: Option<String>,
+    /// `female` or `male`.
+    pub sex: Sex,
+    /// Birth date (or `age`).
+    #[serde(default)]
+    pub birth_date: Option<NaiveDate>,
+    /// Age in years at enrolment (or `birth_date`).
+    #[serde(default)]
+    pub age: Option<f64>,
+    /// Height with its unit (`168 cm`, `5 ft 6 in`, …); kept untyped so a bare number can be
+    /// refused with a helpful message.
+    pub height: serde_yaml::Value,
+    /// Enrolment date.
+    pub enrolled: NaiveDate,
+    /// Withdrawal date.
+    #[serde(default)]
+    pub withdrew: Option<NaiveDate>,
+    /// Group attributes (site, team, …): text values (numbers are taken as text).
+    #[serde(default)]
+    pub groups: BTreeMap<String, serde_yaml::Value>,
+    /// Baseline body fat, %.
+    #[serde(default)]
+    pub body_fat_percent: Option<f64>,
+    /// Target overrides.
+    #[serde(default)]
+    pub targets: Option<TargetsDef>,
+    /// Clinical flags.
+    #[serde(default)]
+    pub flags: Vec<String>,
+}
+
+/// Plausible height, cm (common practice: outside it a value is a typing or unit error).
+pub const HEIGHT_CM_RANGE: (f64, f64) = (100.0, 250.0);
+/// Plausible baseline body fat, % (common practice: below essential fat or above what
+/// measurement devices report).
+pub const BODY_FAT_RANGE: (f64, f64) = (3.0, 70.0);
+
+/// Whole years from `birth` to `on`.
+pub fn whole_years(birth: NaiveDate, on: NaiveDate) -> i32 {
+    let mut y = on.year() - birth.year();
+    if (on.month(), on.day()) < (birth.month(), birth.day()) {
+        y -= 1;
+    }
+    y
+}
+
+/// Parses and checks `profile.yaml` for the folder `folder_id`. Returns the profile when it
+/// has no errors (warnings may still be pushed).
+pub fn parse_profile(
+    text: &str,
+    folder_id: &str,
+    program_targets: &Targets,
+    ctx: &FileCtx,
+    diags: &mut Vec<Diagnostic>,
+) -> Option<Profile> {
+    let def: ProfileDef = match crate::yaml::from_str(text, &ctx.file) {
+        Ok(d) => d,
+        Err(d) => {
+            diags.push(d.participant(&ctx.participant));
+            return None;
+        }
+    };
+    let before = diags.len();
+    let at = |key: &str, d: Diagnostic| {
+        let d = d.field(key);
+        match key_line(text, key) {
+            Some(l) => d.at(l, None),
+            None => d,
+        }
+    };
+    if def.id != folder_id {
+        diags.push(at(
+            "id",
+            ctx.error("the profile id differs from the folder name")
+                .expected(format!("`{folder_id}`"))
+                .found(format!("`{}`", def.id))
+                .hint("the folder name is the participant id; make them the same"),
+        ));
+    }
+    let age_years = match (def.birth_date, def.age) {
+        (Some(_), Some(_)) => {
+            diags.push(at(
+                "age",
+                ctx.error("both `birth_date` and `age` are given")
+                    .expected("exactly one of them")
+                    .hint("keep `birth_date` (the age is then computed at enrolment)"),
+            ));
+            None
+        }
+        (None, None) => {
+            diags.push(
+                ctx.error("neither `birth_date` nor `age` is given")
+                    .expected("`birth_date: YYYY-MM-DD` or `age: 43`")
+                    .hint("the energy equations need the participant's age"),
+            );
+            None
+        }
+        (Some(b), None) => {
+            if b >= def.enrolled {
+                diags.push(at(
+                    "birth_date",
+                    ctx.error("the birth date is not before enrolment")
+                        .found(b.to_string()),
+                ));
+                None
+            } else {
+                Some(whole_years(b, def.enrolled) as f64)
+            }
+        }
+        (None, Some(a)) => Some(a),
+    };
+    if let Some(a) = age_years {
+        // Common practice: the equations used are adult equations; an age outside 18–110
+        // is most likely a typing error.
+        if !(18.0..=110.0).contains(&a) {
+            let key = if def.age.is_some() {
+                "age"
+            } else {
+                "birth_date"
+            };
+            diags.push(at(
+                key,
+                ctx.error(format!("age at enrolment {a} is outside the adult range"))
+                    .expected("an adult aged 18 to 110 at enrolment")
+                    .found(a.to_string())
+                    .hint("this tool's energy equations are for adults; check the value"),
+            ));
+        }
+    }
+    let height = match &def.height {
+        serde_yaml::Value::String(s) => match parse_length(s) {
+            Ok(h) => Some(h),
+            Err(e) => {
+                diags.push(at(
+                    "height",
+                    ctx.error(format!("unreadable height: {}", e.message))
+                        .expected("a height with its unit")
+                        .found(format!("`{s}`"))
+                        .hint(e.hint),
+                ));
+                None
+            }
+        },
+        serde_yaml::Value::Number(n) => {
+            diags.push(at(
+                "height",
+                ctx.error("the height has no unit")
+                    .expected("a height with its unit")
+                    .found(format!("`{n}`"))
+                    .hint(format!("write e.g. `height: {n} cm` or `height: {n} in`")),
+            ));
+            None
+        }
+        other => {
+            diags.push(at(
+                "height",
+                ctx.error("unreadable height")
+                    .expected("a height with its unit such as `168 cm` or `5 ft 6 in`")
+                    .found(format!("{other:?}")),
+            ));
+            None
+        }
+    };
+    if let Some(h) = height {
+        if !(HEIGHT_CM_RANGE.0..=HEIGHT_CM_RANGE.1).contains(&h.cm()) {
+            diags.push(at(
+                "height",
+                ctx.error("implausible height")
+                    .expected(format!("{} to {} cm", HEIGHT_CM_RANGE.0, HEIGHT_CM_RANGE.1))
+                    .found(format!("{:.1} cm", h.cm()))
+                    .hint("check the number and its unit"),
+            ));
+        }
+    }
+    if let Some(wd) = def.withdrew {
+        if wd < def.enrolled {
+            diags.push(at(
+                "withdrew",
+                ctx.error("the withdrawal date is before enrolment")
+                    .expected(format!("a date on or after {}", def.enrolled))
+                    .found(wd.to_string()),
+            ));
+        }
+    }
+    let mut groups = BTreeMap::new();
+    for (k, v) in &def.groups {
+        let text = match v {
+            serde_yaml::Value::String(s) => Some(s.clone()),
+            serde_yaml::Value::Number(n) => Some(n.to_string()),
+            serde_yaml::Value::Bool(b) => Some(b.to_string()),
+            _ => None,
+        };
+        match text {
+            Some(t) if !t.trim().is_empty() => {
+                groups.insert(k.clone(), t.trim().to_string());
+            }
+            _ => diags.push(at(
+                "groups",
+                ctx.warning(format!("group `{k}` has no usable value; it is ignored"))
+                    .expected("a short text such as `North Plant`"),
+            )),
+        }
+    }
+    let body_fat_percent = match def.body_fat_percent {
+        Some(b) if !(BODY_FAT_RANGE.0..=BODY_FAT_RANGE.1).contains(&b) => {
+            diags.push(at(
+                "body_fat_percent",
+                ctx.warning("implausible body fat; the value is ignored")
+                    .expected(format!("{} to {} %", BODY_FAT_RANGE.0, BODY_FAT_RANGE.1))
+                    .found(b.to_string()),
+            ));
+            None
+        }
+        b => b,
+    };
+    let has_error = diags[before..]
+        .iter()
+        .any(|d| d.severity == crate::diag::Severity::Error);
+    if has_error {
+        return None;
+    }
+    Some(Profile {
+        id: def.id,
+        name: def.name.filter(|n| !n.trim().is_empty()),
+        sex: def.sex,
+        birth_date: def.birth_date,
+        age_years: age_years?,
+        height: height?,
+        enrolled: def.enrolled,
+        withdrew: def.withdrew,
+        groups,
+        body_fat_percent,
+        targets: def
+            .targets
+            .as_ref()
+            .map_or_else(|| program_targets.clone(), |t| t.apply(program_targets)),
+        flags: def.flags,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::diag::Severity;
+
+    const GOOD: &str = "id: LW-0147
+name: Dana Example
+sex: female
+birth_date: 1983-09-14
+height: 5 ft 6 in
+enrolled: 2027-03-01
+withdrew: 2027-06-20
+groups: { site: North Plant, team: 3 }
+body_fat_percent: 36
+targets: { weight_change_percent: -7 }
+flags: [glucose-lowering-medication]
+";
+
+    fn parse(text: &str) -> (Option<Profile>, Vec<Diagnostic>) {
+        let ctx = FileCtx::new("LW-0147", "participants/LW-0147/profile.yaml");
+        let mut d = Vec::new();
+        let p = parse_profile(text, "LW-0147", &Targets::default(), &ctx, &mut d);
+        (p, d)
+    }
+
+    #[test]
+    fn full_profile() {
+        let (p, d) = parse(GOOD);
+        assert!(d.is_empty(), "{d:?}");
+        let p = p.unwrap();
+        assert_eq!(p.age_years, 43.0); // 1983-09-14 → 2027-03-01: 43 whole years
+        assert!((p.height.cm() - 167.64).abs() < 1e-9);
+        assert_eq!(p.groups["team"], "3");
+        assert_eq!(p.targets.weight_change_percent, -7.0);
+        assert_eq!(p.targets.activity_minutes_per_week, 150.0);
+        assert_eq!(p.flags, vec!["glucose-lowering-medication"]);
+        assert_eq!(p.sex, Sex::Female);
+    }
+
+    #[test]
+    fn whole_years_respects_birthdays() {
+        let d = |y, m, dd| NaiveDate::from_ymd_opt(y, m, dd).unwrap();
+        assert_eq!(whole_years(d(1980, 3, 1), d(2026, 2, 28)), 45);
+        assert_eq!(whole_years(d(1980, 3, 1), d(2026, 3, 1)), 46);
+        assert_eq!(whole_years(d(1984, 2, 29), d(2026, 2, 28)), 41);
+    }
+
+    #[test]
+    fn bare_height_is_an_error_with_hint() {
+        let (p, d) = parse(&GOOD.replace("5 ft 6 in", "168"));
+        assert!(p.is_none());
+        assert_eq!(d.len(), 1);
+        assert_eq!(d[0].severity, Severity::Error);
+        assert_eq!(d[0].line, Some(5));
+        assert!(d[0].hint.as_deref().unwrap().contains("168 cm"), "{}", d[0]);
+        let (p, d) = parse(&GOOD.replace("5 ft 6 in", "168 stone"));
+        assert!(p.is_none());
+        assert!(d[0].message.contains("unknown unit"), "{}", d[0]);
+        let (p, d) = parse(&GOOD.replace("5 ft 6 in", "16.8 cm"));
+        assert!(p.is_none());
+        assert!(d[0].message.contains("implausible height"), "{}", d[0]);
+    }
+
+    #[test]
+    fn unknown_key_is_named_with_line() {
+        let (p, d) = parse(&format!("{GOOD}hair: brown\n"));
+        assert!(p.is_none());
+        assert_eq!(d[0].line, Some(12));
+        assert_eq!(d[0].found.as_deref(), Some("`hair`"));
+        assert_eq!(d[0].participant.as_deref(), Some("LW-0147"));
+    }
+
+    #[test]
+    fn age_rules() {
+        let (p, d) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 43"));
+        assert!(d.is_empty());
+        assert_eq!(p.unwrap().age_years, 43.0);
+        let (p, d) =
+            parse(&GOOD.replace("birth_date: 1983-09-14", "birth_date: 1983-09-14\nage: 43"));
+        assert!(p.is_none());
+        assert!(d[0].message.contains("both"));
+        let (p, d) = parse(&GOOD.replace("birth_date: 1983-09-14\n", ""));
+        assert!(p.is_none());
+        assert!(d[0].message.contains("neither"));
+        let (p, _) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 7"));
+        assert!(p.is_none());
+    }
+
+    #[test]
+    fn other_profile_errors() {
+        let (p, d) = parse(&GOOD.replace("id: LW-0147", "id: LW-0148"));
+        assert!(p.is_none());
+        assert_eq!((d[0].line, d[0].field.as_deref()), (Some(1), Some("id")));
+        let (p, d) = parse(&GOOD.replace("withdrew: 2027-06-20", "withdrew: 2027-01-20"));
+        assert!(p.is_none());
+        assert_eq!(d[0].line, Some(7));
+        let (p, d) = parse(&GOOD.replace("sex: female", "sex: f"));
+        assert!(p.is_none());
+        assert!(
+            d[0].expected.as_deref().unwrap().contains("female"),
+            "{}",
+            d[0]
+        );
+        let (p, d) = parse(&GOOD.replace("enrolled: 2027-03-01", "enrolled: 2027-02-30"));
+        assert!(p.is_none());
+        assert_eq!(d[0].line, Some(6));
+    }
+
+    #[test]
+    fn implausible_body_fat_is_dropped_with_a_warning() {
+        let (p, d) = parse(&GOOD.replace("body_fat_percent: 36", "body_fat_percent: 90"));
+        assert_eq!(d.len(), 1);
+        assert_eq!(d[0].severity, Severity::Warning);
+        assert_eq!(p.unwrap().body_fat_percent, None);
+    }
+}

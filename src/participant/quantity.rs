@@ -1,0 +1,260 @@
+//! Quantities as people write them: `5 ft 6 in`, `5'6"`, `168 cm`, `1.68 m`, `66 in`, and plain
+//! numbers in CSV cells. Conversions use the exact factors of the metric API's `units` module.
+
+use cohortpress_metric_api::units::Length;
+
+/// Why a number could not be read.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum NumberError {
+    /// Nothing was written.
+    Empty,
+    /// A decimal comma (`72,5`) where a point is expected.
+    DecimalComma,
+    /// Not a number at all.
+    NotANumber,
+}
+
+impl NumberError {
+    /// A hint for the user.
+    pub fn hint(&self) -> &'static str {
+        match self {
+            NumberError::Empty => "fill in the value or remove the row",
+            NumberError::DecimalComma => {
+                "write numbers with a decimal point and no thousands separator: `72.5`, not `72,5`"
+            }
+            NumberError::NotANumber => "write a plain number such as `72.5` (no units or words)",
+        }
+    }
+}
+
+/// Reads a plain decimal number (`72`, `72.5`, `-3`, `.5`). Words (`nan`, `inf`), thousands
+/// separators and decimal commas are refused; a decimal comma is recognised so the message can
+/// suggest a point.
+pub fn parse_decimal(s: &str) -> Result<f64, NumberError> {
+    let s = s.trim();
+    if s.is_empty() {
+        return Err(NumberError::Empty);
+    }
+    let digits = s.strip_prefix(['-', '+']).unwrap_or(s);
+    if let Some((a, b)) = digits.split_once(',') {
+        let all_digits = |t: &str| !t.is_empty() && t.chars().all(|c| c.is_ascii_digit());
+        if all_digits(a) && all_digits(b) {
+            return Err(NumberError::DecimalComma);
+        }
+    }
+    // Rust's float parser also takes `inf`, `NaN` and exponents; people's files hold none of
+    // these on purpose, so only digits and one point are allowed.
+    let ok_chars = digits.chars().all(|c| c.is_ascii_digit() || c == '.')
+        && digits.chars().filter(|&c| c == '.').count() <= 1
+        && digits.chars().any(|c| c.is_ascii_digit());
+    if !ok_chars {
+        return Err(NumberError::NotANumber);
+    }
+    s.parse::<f64>().map_err(|_| NumberError::NotANumber)
+}
+
+/// Why a length could not be read.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct QuantityError {
+    /// What is wrong.
+    pub message: String,
+    /// How to fix it.
+    pub hint: String,
+}
+
+fn qerr(message: impl Into<String>) -> QuantityError {
+    QuantityError {
+        message: message.into(),
+        hint: "write the unit with the number: `168 cm`, `1.68 m`, `66 in`, `5 ft 6 in` or `5'6\"`"
+            .into(),
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum LenUnit {
+    Cm,
+    M,
+    In,
+    Ft,
+}
+
+fn len_unit(u: &str) -> Option<LenUnit> {
+    Some(match u {
+        "cm" | "cms" | "centimeter" | "centimeters" | "centimetre" | "centimetres" => LenUnit::Cm,
+        "m" | "meter" | "meters" | "metre" | "metres" => LenUnit::M,
+        "in" | "inch" | "inches" | "\"" | "''" => LenUnit::In,
+        "ft" | "foot" | "feet" | "'" => LenUnit::Ft,
+        _ => return None,
+    })
+}
+
+/// Reads a length with its unit: `168 cm`, `1.68 m`, `66 in`, `66"`, `5 ft 6 in`, `5 ft`,
+/// `5'6"`, `5' 6`, `5 feet 6 inches`. A bare number is refused: `168` could be cm or in.
+pub fn parse_length(text: &str) -> Result<Length, QuantityError> {
+    let norm = text
+        .trim()
+        .to_lowercase()
+        .replace(['′', '’'], "'")
+        .replace(['″', '”', '“'], "\"");
+    if norm.is_empty() {
+        return Err(qerr("no height given"));
+    }
+    // Split into (number, unit) pairs.
+    let mut pairs: Vec<(String, String)> = Vec::new();
+    let chars: Vec<char> = norm.chars().collect();
+    let mut i = 0;
+    while i < chars.len() {
+        while i < chars.len() && chars[i].is_whitespace() {
+            i += 1;
+        }
+        if i >= chars.len() {
+            break;
+        }
+        let start = i;
+        while i < chars.len() && (chars[i].is_ascii_digit() || chars[i] == '.' || chars[i] == ',') {
+            i += 1;
+        }
+        let num: String = chars[start..i].iter().collect();
+        if num.is_empty() {
+            return Err(qerr(format!(
+                "expected a number at `{}`",
+                &norm[byte_at(&norm, start)..]
+            )));
+        }
+        while i < chars.len() && chars[i].is_whitespace() {
+            i += 1;
+        }
+        let ustart = i;
+        if i < chars.len() && (chars[i] == '\'' || chars[i] == '"') {
+            i += 1;
+            if chars[i - 1] == '\'' && i < chars.len() && chars[i] == '\'' {
+                i += 1; // two single quotes used as an inch mark
+            }
+        } else {
+            while i < chars.len() && chars[i].is_alphabetic() {
+                i += 1;
+            }
+        }
+        let unit: String = chars[ustart..i].iter().collect();
+        pairs.push((num, unit));
+    }
+    let mut values = Vec::new();
+    for (num, unit) in &pairs {
+        let v = match parse_decimal(num) {
+            Ok(v) => v,
+            Err(NumberError::DecimalComma) => {
+                return Err(QuantityError {
+                    message: format!("`{num}` has a decimal comma"),
+                    hint: format!("write `{}` with a decimal point", num.replace(',', ".")),
+                });
+            }
+            Err(_) => return Err(qerr(format!("`{num}` is not a number"))),
+        };
+        let u = if unit.is_empty() {
+            None
+        } else {
+            Some(len_unit(unit).ok_or_else(|| qerr(format!("unknown unit `{unit}`")))?)
+        };
+        values.push((v, u));
+    }
+    let len = match values.as_slice() {
+        [(_, None)] => {
+            return Err(qerr(format!("`{}` has no unit", text.trim())));
+        }
+        [(v, Some(LenUnit::Cm))] => Length::from_cm(*v),
+        [(v, Some(LenUnit::M))] => Length::from_cm(v * 100.0),
+        [(v, Some(LenUnit::In))] => Length::from_in(*v),
+        [(v, Some(LenUnit::Ft))] => Length::from_ft_in(*v, 0.0),
+        // `5 ft 6 in`, `5'6"` and, as people also write it, `5'6` or `5 ft 6`.
+        [(ft, Some(LenUnit::Ft)), (inch, Some(LenUnit::In) | None)] => {
+            if *inch >= 12.0 {
+                return Err(qerr(format!(
+                    "{inch} inches is a foot or more; write feet and inches"
+                )));
+            }
+            Length::from_ft_in(*ft, *inch)
+        }
+        _ => return Err(qerr(format!("cannot read `{}` as a length", text.trim()))),
+    };
+    Ok(len)
+}
+
+fn byte_at(s: &str, char_index: usize) -> usize {
+    s.char_indices().nth(char_index).map_or(s.len(), |(b, _)| b)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn cm(s: &str) -> f64 {
+        parse_length(s)
+            .unwrap_or_else(|e| panic!("{s}: {e:?}"))
+            .cm()
+    }
+
+    #[test]
+    fn heights_in_every_written_form() {
+        // 1 in = 2.54 cm exactly (international yard and pound agreement, 1959).
+        let five_six = 66.0 * 2.54;
+        for s in [
+            "5 ft 6 in",
+            "5ft 6in",
+            "5'6\"",
+            "5' 6\"",
+            "5'6",
+            "5 feet 6 inches",
+            "5 ft 6",
+            "5′6″",
+            "66 in",
+            "66\"",
+            "66 inches",
+        ] {
+            assert!((cm(s) - five_six).abs() < 1e-9, "{s}");
+        }
+        assert_eq!(cm("168 cm"), 168.0);
+        assert_eq!(cm("168cm"), 168.0);
+        assert!((cm("1.68 m") - 168.0).abs() < 1e-9);
+        assert!((cm("6 ft") - 182.88).abs() < 1e-9);
+        assert_eq!(cm(" 170.5 CM "), 170.5);
+    }
+
+    #[test]
+    fn bare_numbers_and_bad_units_are_refused() {
+        let e = parse_length("168").unwrap_err();
+        assert!(e.message.contains("no unit"), "{e:?}");
+        assert!(e.hint.contains("168 cm"));
+        assert!(
+            parse_length("168 furlongs")
+                .unwrap_err()
+                .message
+                .contains("unknown unit")
+        );
+        assert!(parse_length("tall").is_err());
+        assert!(parse_length("").is_err());
+        assert!(
+            parse_length("5 ft 14 in")
+                .unwrap_err()
+                .message
+                .contains("a foot or more")
+        );
+        assert!(parse_length("168 cm 5 in").is_err());
+        let e = parse_length("1,68 m").unwrap_err();
+        assert!(e.hint.contains("1.68"), "{e:?}");
+    }
+
+    #[test]
+    fn decimals() {
+        assert_eq!(parse_decimal("72.5"), Ok(72.5));
+        assert_eq!(parse_decimal(" 72 "), Ok(72.0));
+        assert_eq!(parse_decimal("-3"), Ok(-3.0));
+        assert_eq!(parse_decimal(".5"), Ok(0.5));
+        assert_eq!(parse_decimal("72,5"), Err(NumberError::DecimalComma));
+        assert_eq!(parse_decimal("1,200"), Err(NumberError::DecimalComma));
+        assert_eq!(parse_decimal(""), Err(NumberError::Empty));
+        for bad in ["nan", "inf", "1e3", "72kg", "7.2.1", "-", ".", "n/a"] {
+            assert_eq!(parse_decimal(bad), Err(NumberError::NotANumber), "{bad}");
+        }
+        assert!(NumberError::DecimalComma.hint().contains("72.5"));
+    }
+}

@@ -1,0 +1,410 @@
+use super::*;
+use crate::diag::Severity;
+
+fn d(y: i32, m: u32, day: u32) -> NaiveDate {
+    NaiveDate::from_ymd_opt(y, m, day).unwrap()
+}
+
+fn window() -> Window {
+    Window {
+        enrolled: Some(d(2026, 4, 1)),
+        withdrew: None,
+        as_of: d(2026, 12, 1),
+    }
+}
+
+fn ctx(file: &str) -> FileCtx {
+    FileCtx::new("P1", format!("participants/P1/{file}"))
+}
+
+fn weights(text: &str) -> (Vec<WeighIn>, Vec<Diagnostic>) {
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    (w, diags)
+}
+
+fn only_warnings(diags: &[Diagnostic]) {
+    assert!(
+        diags.iter().all(|x| x.severity == Severity::Warning),
+        "{diags:#?}"
+    );
+}
+
+#[test]
+fn weights_are_read_converted_and_sorted() {
+    let (w, diags) = weights(
+        "date,weight,unit,time,source\n2026-04-03,160,lb,07:05,home\n2026-04-01,72.5,kg,,clinic\n2026-04-01,72.1,kg,06:30,\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 3);
+    assert_eq!((w[0].date, w[0].time.as_deref()), (d(2026, 4, 1), None));
+    assert_eq!(w[1].time.as_deref(), Some("06:30"));
+    assert_eq!(w[0].source.as_deref(), Some("clinic"));
+    // 160 lb × 0.45359237 kg/lb (exact factor, 1959 agreement) = 72.5747792 kg
+    assert!((w[2].weight.kg() - 72.574_779_2).abs() < 1e-9);
+}
+
+#[test]
+fn decimal_comma_in_a_quoted_field_is_named() {
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,\"72,5\",kg\n2026-04-02,72.4,kg\n");
+    assert_eq!(w.len(), 1);
+    assert_eq!(diags.len(), 1);
+    assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(2)));
+    assert!(diags[0].message.contains("decimal comma"), "{}", diags[0]);
+    assert!(diags[0].hint.as_deref().unwrap().contains("72.5"));
+}
+
+#[test]
+fn decimal_comma_with_semicolon_delimiter() {
+    let opts = CsvOptions {
+        delimiter: b';',
+        ..Default::default()
+    };
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date;weight;unit\n2026-04-01;72,5;kg\n",
+        &opts,
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert!(w.is_empty());
+    assert!(diags[0].message.contains("decimal comma"));
+}
+
+#[test]
+fn impossible_weights_are_dropped() {
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-01,0,kg\n2026-04-02,700,kg\n2026-04-03,72,kg\n2026-04-04,20,lb\n",
+    );
+    assert_eq!(w.len(), 1);
+    assert_eq!(diags.len(), 3, "{diags:#?}");
+    only_warnings(&diags);
+    assert_eq!(
+        diags.iter().map(|x| x.line.unwrap()).collect::<Vec<_>>(),
+        vec![2, 3, 5]
+    );
+    assert!(diags[1].message.contains("implausible weight"));
+    assert_eq!(diags[1].found.as_deref(), Some("`700` kg"));
+    assert_eq!(diags[1].column, Some(2));
+}
+
+#[test]
+fn pounds_in_a_kg_row_are_converted_with_a_warning() {
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-01,72.0,kg\n2026-04-03,71.8,kg\n2026-04-05,158.0,kg\n2026-04-07,71.5,kg\n",
+    );
+    assert_eq!(w.len(), 4);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(4));
+    assert!(
+        diags[0].message.contains("looks like pounds"),
+        "{}",
+        diags[0]
+    );
+    // 158 lb × 0.45359237 = 71.66759446 kg
+    assert!((w[2].weight.kg() - 71.667_594_46).abs() < 1e-8);
+}
+
+#[test]
+fn kilograms_in_an_lb_row_are_converted_with_a_warning() {
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-01,160,lb\n2026-04-03,159,lb\n2026-04-05,72.3,lb\n2026-04-08,158.5,lb\n",
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(4));
+    assert!(
+        diags[0].message.contains("looks like kilograms"),
+        "{}",
+        diags[0]
+    );
+    assert_eq!(w[2].weight.kg(), 72.3);
+}
+
+#[test]
+fn a_real_change_is_not_taken_for_a_unit_error() {
+    // A 10 % drop is far outside the ±6 % band around the lb/kg factor.
+    let (_, diags) = weights("date,weight,unit\n2026-04-01,100,kg\n2026-04-10,90,kg\n");
+    assert!(diags.is_empty());
+    // Neighbours more than 14 days away do not count.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,72,kg\n2026-05-01,158,kg\n");
+    assert!(diags.is_empty());
+    assert_eq!(w[1].weight.kg(), 158.0);
+}
+
+#[test]
+fn duplicate_rows_are_dropped() {
+    let (w, diags) =
+        weights("date,weight,unit\n2026-04-01,72,kg\n2026-04-01,72.0,kg\n2026-04-01,72.2,kg\n");
+    assert_eq!(w.len(), 2);
+    assert_eq!(diags.len(), 1);
+    assert_eq!(diags[0].line, Some(3));
+    assert!(diags[0].message.contains("duplicate of line 2"));
+}
+
+#[test]
+fn dates_outside_the_window_are_dropped() {
+    let mut diags = Vec::new();
+    let w = Window {
+        enrolled: Some(d(2026, 4, 1)),
+        withdrew: Some(d(2026, 8, 31)),
+        as_of: d(2026, 12, 1),
+    };
+    let out = parse_weights(
+        "date,weight,unit\n2026-03-31,72,kg\n2026-04-01,72,kg\n2026-09-01,71,kg\n2027-01-01,70,kg\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &w,
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(out.len(), 1);
+    assert_eq!(diags.len(), 3);
+    assert!(
+        diags[0].message.contains("before enrolment"),
+        "{}",
+        diags[0]
+    );
+    assert!(
+        diags[1].message.contains("after withdrawal"),
+        "{}",
+        diags[1]
+    );
+    assert!(diags[2].message.contains("in the future"), "{}", diags[2]);
+    assert_eq!(diags[2].line, Some(5));
+    assert_eq!(diags[2].column, Some(1));
+}
+
+#[test]
+fn bad_units_dates_and_times() {
+    let (w, diags) = weights(
+        "date,weight,unit,time\n2026-04-01,72,stone,\n2026-13-01,72,kg,\n2026-04-02,72,kg,7h30\n,72,kg,\n",
+    );
+    assert_eq!(w.len(), 1);
+    assert_eq!(w[0].time, None);
+    assert_eq!(diags.len(), 4, "{diags:#?}");
+    assert!(diags[0].message.contains("unknown weight unit"));
+    assert!(diags[1].message.contains("unreadable date"));
+    assert!(diags[2].message.contains("unreadable time"));
+    assert!(diags[3].message.contains("`date` is empty"));
+}
+
+#[test]
+fn bom_and_crlf_are_accepted_silently() {
+    let (w, diags) =
+        weights("\u{feff}date,weight,unit\r\n2026-04-01,72,kg\r\n2026-04-02,71.9,kg\r\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 2);
+}
+
+#[test]
+fn other_date_formats_follow_the_program() {
+    let opts = CsvOptions {
+        date_format: "%d/%m/%Y".into(),
+        ..Default::default()
+    };
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date,weight,unit\n02/04/2026,72,kg\n",
+        &opts,
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(w[0].date, d(2026, 4, 2));
+}
+
+fn intake(text: &str) -> (Vec<IntakeDay>, Vec<Diagnostic>) {
+    let mut diags = Vec::new();
+    let v = parse_intake(
+        text,
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    (v, diags)
+}
+
+#[test]
+fn intake_rows_of_a_day_are_summed() {
+    let (v, diags) = intake(
+        "date,kcal,protein_g,carbs_g\n2026-04-02,400,20,50\n2026-04-01,1800,80,\n2026-04-02,650.5,30,70\n",
+    );
+    assert!(diags.is_empty());
+    assert_eq!(v.len(), 2);
+    assert_eq!(v[0].date, d(2026, 4, 1));
+    assert_eq!(v[0].carbs_g, None);
+    assert_eq!(v[1].kcal, 1050.5);
+    assert_eq!(v[1].protein_g, Some(50.0));
+    assert_eq!(v[1].carbs_g, Some(120.0));
+    assert_eq!(v[1].fat_g, None);
+}
+
+#[test]
+fn implausible_daily_intake_is_dropped_after_summing() {
+    let (v, diags) = intake(
+        "date,kcal\n2026-04-01,6000\n2026-04-01,4500\n2026-04-02,0\n2026-04-03,-5\n2026-04-04,1500\n",
+    );
+    assert_eq!(v.len(), 1);
+    assert_eq!(diags.len(), 3, "{diags:#?}");
+    only_warnings(&diags);
+    assert!(diags[0].message.contains("negative"), "{}", diags[0]);
+    assert!(
+        diags[1]
+            .message
+            .contains("10500 kcal on 2026-04-01 (lines 2, 3)"),
+        "{}",
+        diags[1]
+    );
+    assert!(
+        diags[2].message.contains("0 kcal on 2026-04-02"),
+        "{}",
+        diags[2]
+    );
+}
+
+#[test]
+fn duplicate_intake_rows_are_not_summed() {
+    let (v, diags) = intake("date,kcal\n2026-04-01,600\n2026-04-01,600\n");
+    assert_eq!(v[0].kcal, 600.0);
+    assert_eq!(diags.len(), 1);
+}
+
+fn activity(text: &str) -> (Vec<ActivityEntry>, Vec<Diagnostic>) {
+    let mut diags = Vec::new();
+    let v = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    (v, diags)
+}
+
+#[test]
+fn activity_met_comes_from_the_table_or_the_file() {
+    let (v, diags) = activity(
+        "date,activity,minutes,met,steps\n2026-04-02,walking_3mph,30,,3100\n2026-04-01,salsa night,45,5.5,\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].activity, "salsa night");
+    assert_eq!((v[0].met, v[0].met_source.as_str()), (5.5, "given in file"));
+    // Ainsworth et al. 2011, Med Sci Sports Exerc 43:1575: code 17190 = 3.5 MET.
+    assert_eq!(
+        (v[1].met, v[1].met_source.as_str()),
+        (3.5, "Compendium 2011 code 17190")
+    );
+    assert_eq!(v[1].steps, Some(3100.0));
+}
+
+#[test]
+fn unknown_activity_without_met_is_dropped_with_known_codes() {
+    let (v, diags) = activity("date,activity,minutes\n2026-04-01,power walking,30\n");
+    assert!(v.is_empty());
+    assert_eq!(diags.len(), 1);
+    assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(2)));
+    let hint = diags[0].hint.as_deref().unwrap();
+    assert!(
+        hint.contains("walking_3mph") && hint.contains("add a `met` column"),
+        "{hint}"
+    );
+}
+
+#[test]
+fn activity_minutes_and_met_bounds() {
+    let (v, diags) = activity(
+        "date,activity,minutes,met\n2026-04-01,jogging,1000,\n2026-04-02,jogging,-5,\n2026-04-03,odd,30,40\n2026-04-04,cycling_leisure,600,\n2026-04-04,gardening,400,\n2026-04-05,yoga_hatha,60,\n",
+    );
+    assert_eq!(v.len(), 1);
+    assert_eq!(v[0].activity, "yoga_hatha");
+    assert_eq!(diags.len(), 4, "{diags:#?}");
+    assert!(diags[0].message.contains("implausible minutes"));
+    assert!(diags[1].message.contains("implausible minutes"));
+    assert!(diags[2].message.contains("MET value out of range"));
+    assert!(
+        diags[3]
+            .message
+            .contains("1000 activity minutes on 2026-04-04"),
+        "{}",
+        diags[3]
+    );
+}
+
+#[test]
+fn sessions_attendance() {
+    let mut diags = Vec::new();
+    let v = parse_sessions(
+        "date,session,attended\n2026-04-08,2,No\n2026-04-01,1,yes\n2026-04-15,3,maybe\n",
+        &CsvOptions::default(),
+        &ctx("sessions.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(v.len(), 2);
+    assert!(v[0].attended && !v[1].attended);
+    assert_eq!(v[0].session, "1");
+    assert_eq!(diags.len(), 1);
+    assert_eq!(diags[0].column, Some(3));
+}
+
+#[test]
+fn labs_are_converted_to_canonical_units() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,fasting_glucose,126,mg/dL\n2026-04-01,hba1c,53,mmol/mol\n2026-04-01,waist,40,in\n2026-04-01,systolic_bp,128,mmHg\n2026-04-01,fasting_glucose,5.4,mmol/L\n2026-04-02,waist,90,kg\n2026-04-02,ldl,3,mmol/L\n2026-04-02,hba1c,65,%\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(v.len(), 5);
+    // ADA Standards of Care, Section 2: 126 mg/dL = 7.0 mmol/L (÷ 18.016 gives 6.99).
+    let g = v
+        .iter()
+        .find(|l| l.test == LabTest::FastingGlucose && l.unit_as_written == "mg/dL")
+        .unwrap();
+    assert!((g.value - 6.99).abs() < 0.01);
+    assert_eq!(g.value_as_written, 126.0);
+    // Hoelzel et al. 2004, Clin Chem 50:166: 53 mmol/mol = 7.0 %.
+    let a = v.iter().find(|l| l.test == LabTest::Hba1c).unwrap();
+    assert!((a.value - 7.0).abs() < 0.01);
+    // 40 in × 2.54 = 101.6 cm (exact factor).
+    let w = v.iter().find(|l| l.test == LabTest::Waist).unwrap();
+    assert!((w.value - 101.6).abs() < 1e-9);
+    assert_eq!(diags.len(), 3, "{diags:#?}");
+    assert!(diags[0].message.contains("unit not accepted"));
+    assert!(diags[1].message.contains("unknown test"));
+    assert!(diags[2].message.contains("implausible `hba1c`"));
+}
+
+#[test]
+fn missing_required_column_makes_the_file_unusable() {
+    let mut diags = Vec::new();
+    let out = parse_intake(
+        "date,calories\n2026-04-01,1800\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(out.is_none());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].severity, Severity::Error);
+    assert!(diags[0].message.contains("`kcal`"));
+    assert!(diags[0].found.as_deref().unwrap().contains("calories"));
+}

@@ -1,0 +1,216 @@
+use super::*;
+use std::fs;
+use std::path::Path;
+
+const PROGRAM: &str = "format_version: 1
+program: { id: demo-2026, title: \"Demo\", start: 2026-04-01, end: 2026-09-30 }
+modules: [ {id: trend} ]
+";
+
+const PROFILE: &str = "id: P1
+sex: male
+age: 50
+height: 180 cm
+enrolled: 2026-04-01
+";
+
+fn program(root: &Path) -> Program {
+    fs::write(root.join("program.yaml"), PROGRAM).unwrap();
+    crate::program::load_program(root).unwrap()
+}
+
+fn as_of() -> NaiveDate {
+    NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()
+}
+
+fn participant(root: &Path, id: &str, files: &[(&str, &[u8])]) -> ParticipantDir {
+    let dir = root.join("participants").join(id);
+    fs::create_dir_all(&dir).unwrap();
+    for (name, bytes) in files {
+        fs::write(dir.join(name), bytes).unwrap();
+    }
+    ParticipantDir {
+        id: id.into(),
+        path: dir,
+    }
+}
+
+#[test]
+fn discovery_is_sorted_and_refuses_bad_names() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let (dirs, diags) = discover(&p);
+    assert!(dirs.is_empty());
+    assert_eq!(diags[0].severity, Severity::Error);
+    assert!(diags[0].message.contains("does not exist"));
+
+    let base = tmp.path().join("participants");
+    for name in [
+        "b-2",
+        "A_1",
+        "bad id",
+        "a..b",
+        ".hidden",
+        "tab\tname",
+        "ünï",
+    ] {
+        fs::create_dir_all(base.join(name)).unwrap();
+    }
+    fs::write(base.join("notes.txt"), "x").unwrap();
+    #[cfg(unix)]
+    std::os::unix::fs::symlink(base.join("b-2"), base.join("link")).unwrap();
+    let (dirs, diags) = discover(&p);
+    assert_eq!(
+        dirs.iter().map(|d| d.id.as_str()).collect::<Vec<_>>(),
+        vec!["A_1", "b-2"]
+    );
+    let errors: Vec<&str> = diags
+        .iter()
+        .filter(|d| d.severity == Severity::Error)
+        .map(|d| d.file.as_str())
+        .collect();
+    assert_eq!(
+        errors,
+        vec![
+            "participants/a..b",
+            "participants/bad id",
+            "participants/tab\\tname",
+            "participants/ünï"
+        ]
+    );
+    let warnings: Vec<&str> = diags
+        .iter()
+        .filter(|d| d.severity == Severity::Warning)
+        .map(|d| d.file.as_str())
+        .collect();
+    #[cfg(unix)]
+    assert_eq!(
+        warnings,
+        vec!["participants/link", "participants/notes.txt"]
+    );
+}
+
+#[test]
+fn clean_participant_is_usable_and_files_are_hashed() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights = b"date,weight,unit\n2026-04-02,90.5,kg\n2026-04-01,91,kg\n";
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", PROFILE.as_bytes()),
+            ("weights.csv", weights),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
+    let data = lp.data.unwrap();
+    assert_eq!(data.weights.len(), 2);
+    assert_eq!(data.baseline_weight().unwrap().weight.kg(), 91.0);
+    assert_eq!(data.profile.height.cm(), 180.0);
+    assert_eq!(lp.files.len(), 2);
+    assert_eq!(lp.files[1].path, "participants/P1/weights.csv");
+    assert_eq!(
+        lp.files[1].blake3,
+        blake3::hash(weights).to_hex().to_string()
+    );
+    assert_eq!(lp.files[1].bytes, weights.len() as u64);
+}
+
+#[test]
+fn missing_profile_makes_the_participant_unusable() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[("weights.csv", b"date,weight,unit\n2027-01-01,72,kg\n")],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_none());
+    assert!(lp.has_errors());
+    let e = lp
+        .diagnostics
+        .iter()
+        .find(|d| d.severity == Severity::Error)
+        .unwrap();
+    assert_eq!(e.file, "participants/P1/profile.yaml");
+    assert!(e.message.contains("no profile.yaml"), "{e}");
+    // The CSV files are still checked (here: a future date).
+    assert!(
+        lp.diagnostics
+            .iter()
+            .any(|d| d.message.contains("in the future"))
+    );
+}
+
+#[test]
+fn non_utf8_file_is_an_error_naming_line_and_byte() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", PROFILE.as_bytes()),
+            (
+                "activity.csv",
+                b"date,activity,minutes\n2026-04-01,caf\xE9 walk,30\n",
+            ),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_none());
+    assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
+    let e = &lp.diagnostics[0];
+    assert_eq!(e.severity, Severity::Error);
+    assert_eq!(e.file, "participants/P1/activity.csv");
+    assert_eq!((e.line, e.column), (Some(2), Some(15)));
+    assert!(e.found.as_deref().unwrap().contains("0xE9"));
+    assert_eq!(e.participant.as_deref(), Some("P1"));
+    // Files are hashed even when unusable: the manifest records what was read.
+    assert_eq!(lp.files.len(), 2);
+}
+
+#[test]
+fn misspelt_input_files_are_pointed_out() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[("profile.yaml", PROFILE.as_bytes()), ("weight.csv", b"")],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_some());
+    assert_eq!(lp.diagnostics.len(), 1);
+    assert!(
+        lp.diagnostics[0]
+            .message
+            .contains("`weight.csv` is not an input file")
+    );
+}
+
+#[test]
+fn profile_errors_and_withdrawal_window() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let profile = format!("{PROFILE}withdrew: 2026-06-30\n");
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", profile.as_bytes()),
+            (
+                "sessions.csv",
+                b"date,session,attended\n2026-06-30,10,yes\n2026-07-07,11,no\n",
+            ),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    let data = lp.data.unwrap();
+    assert_eq!(data.sessions.len(), 1);
+    assert_eq!(lp.diagnostics.len(), 1);
+    assert_eq!(lp.diagnostics[0].line, Some(3));
+}
