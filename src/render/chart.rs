@@ -1,0 +1,975 @@
+//! The one chart description used by every report format, and the plotters code that draws it.
+//!
+//! The same [`draw`] function draws into plotters' SVG backend (inline charts in HTML reports,
+//! [`to_svg`]) and into our PDF backend ([`super::plotters_pdf`], true vector graphics). Both
+//! backends measure text with the embedded DejaVu Sans metrics ([`estimate_text_size`]), so the
+//! two outputs lay out identically; plotters' own fallback estimate counts bytes and makes
+//! non-ASCII labels too wide.
+//!
+//! Colours come from the Okabe–Ito palette (Okabe & Ito 2008, "Color Universal Design"), which
+//! stays distinguishable for the common forms of colour-vision deficiency; fills are light tints.
+
+use chrono::{Datelike, Duration, NaiveDate};
+use plotters::coord::Shift;
+use plotters::prelude::*;
+use plotters::series::LineSeries as PlotLine;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
+use plotters_backend::{BackendColor, BackendCoord, BackendTextStyle, DrawingErrorKind, FontStyle};
+
+use super::font::{self, Face};
+
+/// A time-series chart: weight trend lines, weigh-in dots, uncertainty bands, shaded periods
+/// (plateaus, regains, forecasts) and horizontal reference lines (goals, baselines).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct LineChart {
+    pub title: String,
+    pub y_label: String,
+    pub lines: Vec<LineSeries>,
+    pub bands: Vec<BandSeries>,
+    pub spans: Vec<Span>,
+    pub hlines: Vec<HLine>,
+    /// Text alternative for screen readers (SVG `<title>` and `aria-label`).
+    pub alt_text: String,
+}
+
+/// One line (or dot series) of dated values.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LineSeries {
+    pub label: String,
+    pub points: Vec<(NaiveDate, f64)>,
+    pub style: LineStyle,
+}
+
+/// How a [`LineSeries`] is drawn.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LineStyle {
+    Solid,
+    Dashed,
+    /// Markers only, no connecting line (weigh-ins).
+    Dots,
+}
+
+/// A shaded band between a lower and an upper value per date (an interval around a trend).
+#[derive(Debug, Clone, PartialEq)]
+pub struct BandSeries {
+    pub label: String,
+    /// (date, lower, upper)
+    pub points: Vec<(NaiveDate, f64, f64)>,
+}
+
+/// A shaded stretch of dates, `from` through `to` inclusive.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Span {
+    pub label: String,
+    pub from: NaiveDate,
+    pub to: NaiveDate,
+    pub kind: SpanKind,
+}
+
+/// What a [`Span`] marks; each kind has its own tint.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SpanKind {
+    Plateau,
+    Regain,
+    Forecast,
+    Highlight,
+}
+
+/// A horizontal reference line across the whole chart.
+#[derive(Debug, Clone, PartialEq)]
+pub struct HLine {
+    pub label: String,
+    pub y: f64,
+}
+
+/// A bar chart of labelled values, with an optional target line.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct BarChart {
+    pub title: String,
+    pub y_label: String,
+    pub bars: Vec<Bar>,
+    pub target: Option<f64>,
+    /// Text alternative for screen readers.
+    pub alt_text: String,
+}
+
+/// One bar. A suppressed bar (too few people behind it to report) is drawn as an empty
+/// outline with a mark and no value.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Bar {
+    pub label: String,
+    pub value: f64,
+    pub suppressed: bool,
+}
+
+/// Any chart a report can hold.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Chart {
+    Line(LineChart),
+    Bars(BarChart),
+}
+
+impl Chart {
+    /// The chart's title.
+    pub fn title(&self) -> &str {
+        match self {
+            Chart::Line(c) => &c.title,
+            Chart::Bars(c) => &c.title,
+        }
+    }
+
+    /// The chart's text alternative.
+    pub fn alt_text(&self) -> &str {
+        match self {
+            Chart::Line(c) => &c.alt_text,
+            Chart::Bars(c) => &c.alt_text,
+        }
+    }
+
+    /// The drawing size (in chart pixels) the PDF renderer uses; it scales this to the page.
+    pub(crate) fn pdf_canvas(&self) -> (u32, u32) {
+        match self {
+            Chart::Line(_) => (720, 340),
+            Chart::Bars(_) => (720, 300),
+        }
+    }
+}
+
+// ---- palette ------------------------------------------------------------------------------
+// Okabe–Ito colours (Okabe & Ito 2008, "Color Universal Design", https://jfly.uni-koeln.de/color/).
+
+const OI_ORANGE: RGBColor = RGBColor(0xE6, 0x9F, 0x00);
+const OI_SKY: RGBColor = RGBColor(0x56, 0xB4, 0xE9);
+const OI_GREEN: RGBColor = RGBColor(0x00, 0x9E, 0x73);
+const OI_YELLOW: RGBColor = RGBColor(0xF0, 0xE4, 0x42);
+const OI_BLUE: RGBColor = RGBColor(0x00, 0x72, 0xB2);
+const OI_VERMILLION: RGBColor = RGBColor(0xD5, 0x5E, 0x00);
+const OI_PURPLE: RGBColor = RGBColor(0xCC, 0x79, 0xA7);
+
+/// Line colours in the order series are given.
+const LINE_COLOURS: [RGBColor; 6] = [
+    OI_BLUE,
+    OI_VERMILLION,
+    OI_GREEN,
+    OI_PURPLE,
+    OI_ORANGE,
+    OI_SKY,
+];
+const INK: RGBColor = RGBColor(0x22, 0x22, 0x22);
+const MUTED: RGBColor = RGBColor(0x5F, 0x5F, 0x5F);
+const GRID: RGBColor = RGBColor(0xE3, 0xE3, 0xE3);
+const AXIS: RGBColor = RGBColor(0x9A, 0x9A, 0x9A);
+
+/// Font family written into SVG text; the PDF embeds DejaVu Sans itself. Verdana is the closest
+/// common fallback in width.
+const FAMILY: &str = "DejaVu Sans, Verdana, sans-serif";
+/// plotters' SVG backend writes `font-size = size / 1.24`; the PDF backend and the text
+/// measurement use the same em size so both outputs agree.
+pub(crate) const SVG_FONT_DIVISOR: f32 = 1.24;
+/// Title and label sizes in plotters' size units.
+const TITLE_SIZE: f64 = 19.0;
+const LABEL_SIZE: f64 = 14.0;
+
+fn span_fill(kind: SpanKind) -> RGBAColor {
+    match kind {
+        SpanKind::Plateau => OI_YELLOW.mix(0.30),
+        SpanKind::Regain => OI_VERMILLION.mix(0.13),
+        SpanKind::Forecast => RGBColor(0x80, 0x80, 0x80).mix(0.12),
+        SpanKind::Highlight => OI_SKY.mix(0.18),
+    }
+}
+
+fn text(size: f64, colour: RGBColor) -> TextStyle<'static> {
+    (FAMILY, size).into_font().color(&colour)
+}
+
+fn bold_text(size: f64, colour: RGBColor) -> TextStyle<'static> {
+    (FAMILY, size, FontStyle::Bold).into_font().color(&colour)
+}
+
+// ---- text measurement shared by both backends ----------------------------------------------
+
+/// The face a plotters text style maps to.
+pub(crate) fn style_face<S: BackendTextStyle>(style: &S) -> Face {
+    match style.style() {
+        FontStyle::Bold => Face::Bold,
+        _ => Face::Regular,
+    }
+}
+
+/// The em size (in chart pixels) that both backends render a plotters text style at.
+pub(crate) fn em_size<S: BackendTextStyle>(style: &S) -> f32 {
+    style.size() as f32 / SVG_FONT_DIVISOR
+}
+
+/// Text box size from the embedded font's advance widths; both backends use this.
+pub(crate) fn estimate_text_size<S: BackendTextStyle>(text: &str, style: &S) -> (u32, u32) {
+    let em = em_size(style);
+    let w = font::text_width(style_face(style), text, em);
+    // DejaVu Sans ascender + descender: (1901 + 483) / 2048 em (hhea), about 1.16 em.
+    (w.ceil() as u32, (em * 1.16).ceil() as u32)
+}
+
+// ---- SVG -----------------------------------------------------------------------------------
+
+/// plotters' SVG backend with text measured by the embedded font metrics.
+struct MeasuredSvg<'a>(SVGBackend<'a>);
+
+impl DrawingBackend for MeasuredSvg<'_> {
+    type ErrorType = <SVGBackend<'static> as DrawingBackend>::ErrorType;
+
+    fn get_size(&self) -> (u32, u32) {
+        self.0.get_size()
+    }
+    fn ensure_prepared(&mut self) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.ensure_prepared()
+    }
+    fn present(&mut self) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.present()
+    }
+    fn draw_pixel(
+        &mut self,
+        point: BackendCoord,
+        color: BackendColor,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_pixel(point, color)
+    }
+    fn draw_line<S: plotters_backend::BackendStyle>(
+        &mut self,
+        from: BackendCoord,
+        to: BackendCoord,
+        style: &S,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_line(from, to, style)
+    }
+    fn draw_rect<S: plotters_backend::BackendStyle>(
+        &mut self,
+        upper_left: BackendCoord,
+        bottom_right: BackendCoord,
+        style: &S,
+        fill: bool,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_rect(upper_left, bottom_right, style, fill)
+    }
+    fn draw_path<S: plotters_backend::BackendStyle, I: IntoIterator<Item = BackendCoord>>(
+        &mut self,
+        path: I,
+        style: &S,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_path(path, style)
+    }
+    fn draw_circle<S: plotters_backend::BackendStyle>(
+        &mut self,
+        center: BackendCoord,
+        radius: u32,
+        style: &S,
+        fill: bool,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_circle(center, radius, style, fill)
+    }
+    fn fill_polygon<S: plotters_backend::BackendStyle, I: IntoIterator<Item = BackendCoord>>(
+        &mut self,
+        vert: I,
+        style: &S,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.fill_polygon(vert, style)
+    }
+    fn draw_text<S: BackendTextStyle>(
+        &mut self,
+        text: &str,
+        style: &S,
+        pos: BackendCoord,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_text(text, style, pos)
+    }
+    fn estimate_text_size<S: BackendTextStyle>(
+        &self,
+        text: &str,
+        style: &S,
+    ) -> Result<(u32, u32), DrawingErrorKind<Self::ErrorType>> {
+        Ok(estimate_text_size(text, style))
+    }
+}
+
+/// Draws `chart` as a standalone `<svg>` element for inline HTML.
+///
+/// The output has no scripts and no external references, all text is escaped, and the same
+/// chart always gives the same string. A `<title>` and `aria-label` carry the alt text.
+pub fn to_svg(chart: &Chart, width: u32, height: u32) -> String {
+    let (width, height) = (width.max(80), height.max(60));
+    let mut body = String::with_capacity(16 * 1024);
+    {
+        let root =
+            MeasuredSvg(SVGBackend::with_string(&mut body, (width, height))).into_drawing_area();
+        if draw(chart, &root).is_err() {
+            // Drawing into a String cannot fail on I/O; a plotters layout error (e.g. an area too
+            // small for the labels) leaves a blank chart rather than a broken report.
+            let _ = root.fill(&WHITE);
+        }
+        let _ = root.present();
+    }
+    // Add accessibility metadata right after the opening tag.
+    let alt = if chart.alt_text().is_empty() {
+        chart.title()
+    } else {
+        chart.alt_text()
+    };
+    let mut out = String::with_capacity(body.len() + alt.len() * 2 + 64);
+    match body.find('>') {
+        Some(end) if body.starts_with("<svg") => {
+            out.push_str(&body[..end]);
+            out.push_str(" role=\"img\" aria-label=\"");
+            escape_xml_into(&mut out, alt);
+            out.push_str("\"><title>");
+            escape_xml_into(&mut out, alt);
+            out.push_str("</title>");
+            out.push_str(&body[end + 1..]);
+        }
+        _ => out.push_str(&body),
+    }
+    out
+}
+
+fn escape_xml_into(out: &mut String, s: &str) {
+    for c in s.chars() {
+        match c {
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '&' => out.push_str("&amp;"),
+            '"' => out.push_str("&quot;"),
+            '\'' => out.push_str("&apos;"),
+            // Control characters are not allowed in XML 1.0.
+            c if (c as u32) < 0x20 && c != '\n' && c != '\t' => out.push(' '),
+            c => out.push(c),
+        }
+    }
+}
+
+// ---- drawing -------------------------------------------------------------------------------
+
+type DrawResult<DB> = Result<(), DrawingAreaErrorKind<<DB as DrawingBackend>::ErrorType>>;
+
+/// Draws `chart` onto `root` (any plotters backend).
+pub(crate) fn draw<DB: DrawingBackend>(
+    chart: &Chart,
+    root: &DrawingArea<DB, Shift>,
+) -> DrawResult<DB> {
+    root.fill(&WHITE)?;
+    match chart {
+        Chart::Line(c) => draw_line_chart(c, root),
+        Chart::Bars(c) => draw_bar_chart(c, root),
+    }
+}
+
+/// Title plus a centred note, for a chart with nothing to plot.
+fn draw_empty<DB: DrawingBackend>(title: &str, root: &DrawingArea<DB, Shift>) -> DrawResult<DB> {
+    let (w, h) = root.dim_in_pixel();
+    root.draw(&Text::new(
+        title.to_string(),
+        (w as i32 / 2, 10),
+        bold_text(TITLE_SIZE, INK).pos(Pos::new(HPos::Center, VPos::Top)),
+    ))?;
+    root.draw(&Text::new(
+        "No data for this period".to_string(),
+        (w as i32 / 2, h as i32 / 2),
+        text(LABEL_SIZE, MUTED).pos(Pos::new(HPos::Center, VPos::Center)),
+    ))?;
+    Ok(())
+}
+
+/// A number for an axis or a value label: at most two decimals, no trailing zeros.
+fn fmt_num(v: f64, max_decimals: usize) -> String {
+    let s = format!("{v:.max_decimals$}");
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
+    if s == "-0" { "0".to_string() } else { s }
+}
+
+/// Cuts `s` with an ellipsis so it fits `max_px` at the label size.
+fn fit_label(s: &str, max_px: f32, size: f64) -> String {
+    let em = size as f32 / SVG_FONT_DIVISOR;
+    let m = font::face(Face::Regular);
+    if m.width(s, em) <= max_px {
+        return s.to_string();
+    }
+    let budget = max_px - m.width("…", em);
+    let mut out = String::new();
+    let mut used = 0.0;
+    for c in s.chars() {
+        let w = m.char_width(c, em);
+        if used + w > budget {
+            break;
+        }
+        used += w;
+        out.push(c);
+    }
+    out.push('…');
+    out
+}
+
+/// Value range padded by 6 % on each side; a flat range is widened so the axis has a scale.
+fn padded(lo: f64, hi: f64) -> (f64, f64) {
+    if !(lo.is_finite() && hi.is_finite()) {
+        return (0.0, 1.0);
+    }
+    if (hi - lo).abs() < 1e-9 {
+        let d = if lo.abs() > 1.0 { lo.abs() * 0.05 } else { 1.0 };
+        return (lo - d, hi + d);
+    }
+    let pad = (hi - lo) * 0.06;
+    (lo - pad, hi + pad)
+}
+
+fn draw_line_chart<DB: DrawingBackend>(
+    c: &LineChart,
+    root: &DrawingArea<DB, Shift>,
+) -> DrawResult<DB> {
+    // Dates from plotted data decide the x range; spans are clipped to it (a forecast span
+    // alone, with no data, still gives a range).
+    let mut dates = c
+        .lines
+        .iter()
+        .flat_map(|l| l.points.iter().filter(|p| p.1.is_finite()).map(|p| p.0))
+        .chain(c.bands.iter().flat_map(|b| {
+            b.points
+                .iter()
+                .filter(|p| p.1.is_finite() && p.2.is_finite())
+                .map(|p| p.0)
+        }))
+        .peekable();
+    let (mut x0, mut x1) = if dates.peek().is_some() {
+        dates.fold((NaiveDate::MAX, NaiveDate::MIN), |(a, b), d| {
+            (a.min(d), b.max(d))
+        })
+    } else if let (Some(a), Some(b)) = (
+        c.spans.iter().map(|s| s.from.min(s.to)).min(),
+        c.spans.iter().map(|s| s.to.max(s.from)).max(),
+    ) {
+        (a, b)
+    } else {
+        return draw_empty(&c.title, root);
+    };
+    for s in &c.spans {
+        // Forecast spans extend the axis forward: they are the point of showing one.
+        if s.kind == SpanKind::Forecast {
+            x1 = x1.max(s.to);
+        }
+    }
+    if x0 == x1 {
+        x0 = x0 - Duration::days(3);
+        x1 = x1 + Duration::days(3);
+    }
+
+    let ys = c
+        .lines
+        .iter()
+        .flat_map(|l| l.points.iter().map(|p| p.1))
+        .chain(
+            c.bands
+                .iter()
+                .flat_map(|b| b.points.iter().flat_map(|p| [p.1, p.2])),
+        )
+        .chain(c.hlines.iter().map(|h| h.y))
+        .filter(|v| v.is_finite());
+    let (lo, hi) = ys.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+        (a.min(v), b.max(v))
+    });
+    let (y0, y1) = padded(lo, hi);
+
+    let long_range = (x1 - x0).num_days() > 400;
+    let date_fmt = move |d: &NaiveDate| -> String {
+        if long_range {
+            d.format("%b %Y").to_string()
+        } else {
+            format!("{} {}", d.day(), d.format("%b"))
+        }
+    };
+    let y_fmt = |v: &f64| fmt_num(*v, 2);
+
+    let mut chart = ChartBuilder::on(root)
+        .caption(&c.title, bold_text(TITLE_SIZE, INK))
+        .margin(10)
+        .margin_right(18)
+        .x_label_area_size(30)
+        .y_label_area_size(if c.y_label.is_empty() { 44 } else { 62 })
+        .build_cartesian_2d(x0..x1, y0..y1)?;
+    chart
+        .configure_mesh()
+        .disable_x_mesh()
+        .light_line_style(TRANSPARENT)
+        .bold_line_style(GRID.stroke_width(1))
+        .axis_style(AXIS.stroke_width(1))
+        .label_style(text(LABEL_SIZE, MUTED))
+        .axis_desc_style(text(LABEL_SIZE, MUTED))
+        .y_desc(c.y_label.as_str())
+        .x_labels(7)
+        .y_labels(6)
+        .x_label_formatter(&date_fmt)
+        .y_label_formatter(&y_fmt)
+        .draw()?;
+
+    let mut labelled = std::collections::BTreeSet::new();
+    for s in &c.spans {
+        let (from, to) = (s.from.min(s.to), s.to.max(s.from));
+        let from = from.max(x0);
+        // `to` is inclusive: shade through the end of that day.
+        let to = (to + Duration::days(1)).min(x1);
+        if to <= from {
+            continue;
+        }
+        let fill = span_fill(s.kind);
+        let series = chart.draw_series(std::iter::once(Rectangle::new(
+            [(from, y1), (to, y0)],
+            fill.filled(),
+        )))?;
+        if !s.label.is_empty() && labelled.insert(s.label.clone()) {
+            series
+                .label(s.label.as_str())
+                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 18, y + 6)], fill.filled()));
+        }
+    }
+
+    for b in &c.bands {
+        let mut pts: Vec<(NaiveDate, f64, f64)> = b
+            .points
+            .iter()
+            .copied()
+            .filter(|p| p.1.is_finite() && p.2.is_finite())
+            .collect();
+        if pts.len() < 2 {
+            continue;
+        }
+        pts.sort_by_key(|p| p.0);
+        let outline: Vec<(NaiveDate, f64)> = pts
+            .iter()
+            .map(|p| (p.0, p.2.max(p.1)))
+            .chain(pts.iter().rev().map(|p| (p.0, p.1.min(p.2))))
+            .collect();
+        let fill = OI_SKY.mix(0.25);
+        let series = chart.draw_series(std::iter::once(Polygon::new(outline, fill.filled())))?;
+        if !b.label.is_empty() {
+            series
+                .label(b.label.as_str())
+                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 18, y + 6)], fill.filled()));
+        }
+    }
+
+    for h in c.hlines.iter().filter(|h| h.y.is_finite()) {
+        let style = MUTED.stroke_width(1);
+        chart.draw_series(DashedLineSeries::new(
+            [(x0, h.y), (x1, h.y)],
+            5u32,
+            4u32,
+            style,
+        ))?;
+        if !h.label.is_empty() {
+            chart.draw_series(std::iter::once(
+                EmptyElement::at((x1, h.y))
+                    + Text::new(
+                        h.label.clone(),
+                        (-4, -3),
+                        text(LABEL_SIZE - 1.0, MUTED).pos(Pos::new(HPos::Right, VPos::Bottom)),
+                    ),
+            ))?;
+        }
+    }
+
+    for (i, l) in c.lines.iter().enumerate() {
+        let colour = LINE_COLOURS[i % LINE_COLOURS.len()];
+        let mut pts: Vec<(NaiveDate, f64)> = l
+            .points
+            .iter()
+            .copied()
+            .filter(|p| p.1.is_finite())
+            .collect();
+        pts.sort_by_key(|p| p.0);
+        let line_style = colour.stroke_width(2);
+        let series = match l.style {
+            LineStyle::Dots => chart.draw_series(
+                pts.iter()
+                    .map(|&p| Circle::new(p, 3, colour.mix(0.8).filled())),
+            )?,
+            _ if pts.len() == 1 => {
+                chart.draw_series(pts.iter().map(|&p| Circle::new(p, 3, colour.filled())))?
+            }
+            LineStyle::Solid => {
+                chart.draw_series(PlotLine::new(pts.iter().copied(), line_style))?
+            }
+            LineStyle::Dashed => chart.draw_series(DashedLineSeries::new(
+                pts.iter().copied(),
+                7u32,
+                5u32,
+                line_style,
+            ))?,
+        };
+        if !l.label.is_empty() {
+            let series = series.label(l.label.as_str());
+            match l.style {
+                LineStyle::Dots => {
+                    series.legend(move |(x, y)| Circle::new((x + 9, y), 3, colour.filled()));
+                }
+                LineStyle::Solid => {
+                    series.legend(move |(x, y)| {
+                        PathElement::new(vec![(x, y), (x + 18, y)], line_style)
+                    });
+                }
+                LineStyle::Dashed => {
+                    series.legend(move |(x, y)| {
+                        EmptyElement::at((x, y))
+                            + PathElement::new(vec![(0, 0), (7, 0)], line_style)
+                            + PathElement::new(vec![(11, 0), (18, 0)], line_style)
+                    });
+                }
+            }
+        }
+    }
+
+    let any_label = c.lines.iter().any(|l| !l.label.is_empty())
+        || c.bands.iter().any(|b| !b.label.is_empty())
+        || c.spans.iter().any(|s| !s.label.is_empty());
+    if any_label {
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .margin(6)
+            .legend_area_size(24)
+            .label_font(text(LABEL_SIZE - 1.0, INK))
+            .background_style(WHITE.mix(0.88))
+            .border_style(GRID)
+            .draw()?;
+    }
+    Ok(())
+}
+
+fn draw_bar_chart<DB: DrawingBackend>(
+    c: &BarChart,
+    root: &DrawingArea<DB, Shift>,
+) -> DrawResult<DB> {
+    if c.bars.is_empty() {
+        return draw_empty(&c.title, root);
+    }
+    let n = c.bars.len();
+    let values = c
+        .bars
+        .iter()
+        .filter(|b| !b.suppressed && b.value.is_finite())
+        .map(|b| b.value)
+        .chain(c.target.filter(|t| t.is_finite()));
+    let (lo, hi) = values.fold((0.0f64, f64::NEG_INFINITY), |(a, b), v| {
+        (a.min(v), b.max(v))
+    });
+    let hi = if hi.is_finite() && hi > lo {
+        hi
+    } else {
+        lo + 1.0
+    };
+    // Bars grow from zero; head-room above the tallest bar holds its value label.
+    let (y0, y1) = (
+        if lo < 0.0 { lo * 1.12 } else { 0.0 },
+        hi + (hi - lo) * 0.14,
+    );
+    let any_suppressed = c.bars.iter().any(|b| b.suppressed);
+
+    let mut chart = ChartBuilder::on(root)
+        .caption(&c.title, bold_text(TITLE_SIZE, INK))
+        .margin(10)
+        .margin_right(18)
+        .x_label_area_size(if any_suppressed { 48 } else { 30 })
+        .y_label_area_size(if c.y_label.is_empty() { 44 } else { 62 })
+        .build_cartesian_2d(0f64..n as f64, y0..y1)?;
+    let y_fmt = |v: &f64| fmt_num(*v, 2);
+    chart
+        .configure_mesh()
+        .disable_x_mesh()
+        .light_line_style(TRANSPARENT)
+        .bold_line_style(GRID.stroke_width(1))
+        .axis_style(AXIS.stroke_width(1))
+        .label_style(text(LABEL_SIZE, MUTED))
+        .axis_desc_style(text(LABEL_SIZE, MUTED))
+        .y_desc(c.y_label.as_str())
+        .x_labels(0)
+        .y_labels(6)
+        .y_label_formatter(&y_fmt)
+        .draw()?;
+
+    let slot_px = {
+        let a = chart.backend_coord(&(0.0, 0.0));
+        let b = chart.backend_coord(&(1.0, 0.0));
+        (b.0 - a.0).max(1) as f32
+    };
+    let value_style = text(LABEL_SIZE - 1.0, INK).pos(Pos::new(HPos::Center, VPos::Bottom));
+    let label_style = text(LABEL_SIZE, MUTED).pos(Pos::new(HPos::Center, VPos::Top));
+    let outline = AXIS.stroke_width(1);
+    for (i, b) in c.bars.iter().enumerate() {
+        let (l, r) = (i as f64 + 0.18, i as f64 + 0.82);
+        if b.suppressed || !b.value.is_finite() {
+            let h = y0.max(0.0) + (y1 - y0) * 0.3;
+            chart.draw_series(std::iter::once(Rectangle::new(
+                [(l, y0.max(0.0)), (r, h)],
+                outline,
+            )))?;
+            let mid = chart.backend_coord(&(i as f64 + 0.5, (y0.max(0.0) + h) / 2.0));
+            root.draw(&Text::new(
+                "*",
+                mid,
+                text(LABEL_SIZE + 2.0, MUTED).pos(Pos::new(HPos::Center, VPos::Center)),
+            ))?;
+        } else {
+            chart.draw_series(std::iter::once(Rectangle::new(
+                [(l, 0.0), (r, b.value)],
+                OI_BLUE.filled(),
+            )))?;
+            let top = chart.backend_coord(&(i as f64 + 0.5, b.value.max(0.0)));
+            root.draw(&Text::new(
+                fmt_num(b.value, 1),
+                (top.0, top.1 - 3),
+                value_style.clone(),
+            ))?;
+        }
+        let base = chart.backend_coord(&(i as f64 + 0.5, y0));
+        root.draw(&Text::new(
+            fit_label(&b.label, slot_px - 4.0, LABEL_SIZE),
+            (base.0, base.1 + 7),
+            label_style.clone(),
+        ))?;
+    }
+    if let Some(t) = c.target.filter(|t| t.is_finite()) {
+        chart.draw_series(DashedLineSeries::new(
+            [(0.0, t), (n as f64, t)],
+            6u32,
+            4u32,
+            OI_VERMILLION.stroke_width(2),
+        ))?;
+        chart.draw_series(std::iter::once(
+            EmptyElement::at((n as f64, t))
+                + Text::new(
+                    format!("target {}", fmt_num(t, 1)),
+                    (-4, -4),
+                    text(LABEL_SIZE - 1.0, OI_VERMILLION).pos(Pos::new(HPos::Right, VPos::Bottom)),
+                ),
+        ))?;
+    }
+    if any_suppressed {
+        let (_, h) = root.dim_in_pixel();
+        root.draw(&Text::new(
+            "* not shown: too few people to report",
+            (14, h as i32 - 8),
+            text(LABEL_SIZE - 2.0, MUTED).pos(Pos::new(HPos::Left, VPos::Bottom)),
+        ))?;
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn d(m: u32, day: u32) -> NaiveDate {
+        NaiveDate::from_ymd_opt(2025, m, day).unwrap()
+    }
+
+    pub(crate) fn sample_line() -> Chart {
+        let weights: Vec<(NaiveDate, f64)> = (0..60)
+            .map(|i| {
+                (
+                    d(3, 1) + Duration::days(i),
+                    92.0 - i as f64 * 0.08 + ((i * 7) % 5) as f64 * 0.2,
+                )
+            })
+            .collect();
+        let trend: Vec<(NaiveDate, f64)> = (0..60)
+            .map(|i| (d(3, 1) + Duration::days(i), 92.3 - i as f64 * 0.08))
+            .collect();
+        Chart::Line(LineChart {
+            title: "Weight trend — Łucja Nguyễn-Øberg".into(),
+            y_label: "kg".into(),
+            lines: vec![
+                LineSeries {
+                    label: "weigh-ins".into(),
+                    points: weights,
+                    style: LineStyle::Dots,
+                },
+                LineSeries {
+                    label: "trend <smoothed>".into(),
+                    points: trend,
+                    style: LineStyle::Solid,
+                },
+                LineSeries {
+                    label: "forecast".into(),
+                    points: vec![(d(4, 29), 87.6), (d(5, 29), 85.9)],
+                    style: LineStyle::Dashed,
+                },
+            ],
+            bands: vec![BandSeries {
+                label: "95 % interval".into(),
+                points: (0..60)
+                    .map(|i| {
+                        (
+                            d(3, 1) + Duration::days(i),
+                            91.5 - i as f64 * 0.08,
+                            93.1 - i as f64 * 0.08,
+                        )
+                    })
+                    .collect(),
+            }],
+            spans: vec![
+                Span {
+                    label: "plateau".into(),
+                    from: d(3, 20),
+                    to: d(4, 2),
+                    kind: SpanKind::Plateau,
+                },
+                Span {
+                    label: "forecast".into(),
+                    from: d(4, 29),
+                    to: d(5, 29),
+                    kind: SpanKind::Forecast,
+                },
+            ],
+            hlines: vec![HLine {
+                label: "goal 85 kg".into(),
+                y: 85.0,
+            }],
+            alt_text: "Weight fell from 92 to 87.5 kg over 60 days & a plateau in March".into(),
+        })
+    }
+
+    #[test]
+    fn svg_is_standalone_escaped_and_script_free() {
+        let svg = to_svg(&sample_line(), 720, 340);
+        assert!(svg.starts_with("<svg"), "{}", &svg[..60]);
+        assert!(svg.trim_end().ends_with("</svg>"));
+        assert!(!svg.to_lowercase().contains("<script"));
+        assert!(!svg.contains("href"));
+        assert!(
+            svg.contains("trend &lt;smoothed&gt;"),
+            "legend text escaped"
+        );
+        assert!(!svg.contains("<smoothed>"));
+        assert!(svg.contains(
+            "<title>Weight fell from 92 to 87.5 kg over 60 days &amp; a plateau in March</title>"
+        ));
+        assert!(svg.contains("Łucja Nguyễn-Øberg"));
+        assert!(svg.contains("goal 85 kg"));
+    }
+
+    #[test]
+    fn svg_is_deterministic() {
+        assert_eq!(
+            to_svg(&sample_line(), 640, 320),
+            to_svg(&sample_line(), 640, 320)
+        );
+    }
+
+    #[test]
+    fn hostile_text_cannot_break_out_of_the_svg() {
+        let chart = Chart::Bars(BarChart {
+            title: "</svg><script>alert(1)</script>".into(),
+            y_label: "\"onload=x".into(),
+            bars: vec![Bar {
+                label: "<img src=x>".into(),
+                value: 3.0,
+                suppressed: false,
+            }],
+            target: None,
+            alt_text: "\" onmouseover=\"x".into(),
+        });
+        let svg = to_svg(&chart, 400, 300);
+        assert!(!svg.to_lowercase().contains("<script"));
+        assert!(!svg.contains("<img"));
+        assert_eq!(svg.matches("</svg>").count(), 1);
+        assert!(!svg.contains("\" onmouseover"));
+    }
+
+    #[test]
+    fn empty_and_degenerate_charts_do_not_panic() {
+        let empty_line = Chart::Line(LineChart {
+            title: "Nothing yet".into(),
+            lines: vec![LineSeries {
+                label: "w".into(),
+                points: vec![],
+                style: LineStyle::Solid,
+            }],
+            bands: vec![BandSeries {
+                label: "b".into(),
+                points: vec![],
+            }],
+            ..Default::default()
+        });
+        let svg = to_svg(&empty_line, 600, 300);
+        assert!(svg.contains("No data for this period"));
+
+        let one_point = Chart::Line(LineChart {
+            title: "One weigh-in".into(),
+            lines: vec![LineSeries {
+                label: "w".into(),
+                points: vec![(d(3, 1), 80.0)],
+                style: LineStyle::Solid,
+            }],
+            ..Default::default()
+        });
+        assert!(to_svg(&one_point, 600, 300).contains("<circle"));
+
+        let nan = Chart::Line(LineChart {
+            title: "NaN".into(),
+            lines: vec![LineSeries {
+                label: "w".into(),
+                points: vec![(d(3, 1), f64::NAN), (d(3, 2), f64::INFINITY)],
+                style: LineStyle::Dashed,
+            }],
+            ..Default::default()
+        });
+        assert!(to_svg(&nan, 600, 300).contains("No data for this period"));
+
+        let no_bars = Chart::Bars(BarChart {
+            title: "None".into(),
+            ..Default::default()
+        });
+        assert!(to_svg(&no_bars, 600, 300).contains("No data for this period"));
+
+        let all_suppressed = Chart::Bars(BarChart {
+            title: "Small groups".into(),
+            y_label: "%".into(),
+            bars: vec![
+                Bar {
+                    label: "A".into(),
+                    value: 0.0,
+                    suppressed: true,
+                },
+                Bar {
+                    label: "B".into(),
+                    value: f64::NAN,
+                    suppressed: true,
+                },
+            ],
+            target: Some(5.0),
+            alt_text: String::new(),
+        });
+        let svg = to_svg(&all_suppressed, 600, 300);
+        assert!(svg.contains("too few people"));
+        assert!(svg.contains("target 5"));
+        // No value label is printed for a suppressed bar (the value 0 would otherwise show).
+        assert!(!svg.contains(">0</text>"));
+    }
+
+    #[test]
+    fn label_width_uses_font_metrics_not_bytes() {
+        let style = text(LABEL_SIZE, INK);
+        let ascii = estimate_text_size("Nguyen", &style).0;
+        let accented = estimate_text_size("Nguyễn", &style).0;
+        // "ễ" is three UTF-8 bytes; with real metrics it is exactly as wide as "e".
+        assert_eq!(ascii, accented);
+        assert!(estimate_text_size("WWW", &style).0 > estimate_text_size("iii", &style).0 * 2);
+    }
+
+    #[test]
+    fn fmt_num_trims() {
+        assert_eq!(fmt_num(72.50, 2), "72.5");
+        assert_eq!(fmt_num(80.0, 2), "80");
+        assert_eq!(fmt_num(-0.001, 1), "0");
+        assert_eq!(fmt_num(3.14159, 1), "3.1");
+    }
+}
