@@ -314,7 +314,8 @@ impl Person<'_> {
             .iter()
             .filter(|a| a.date >= from && a.date <= to)
             .map(|a| activity_kcal_net(a.met, 1.0, a.minutes / 60.0))
-            .sum();
+            // fold from +0.0: an empty float sum is −0.0, which would print as "-0".
+            .fold(0.0, |acc, x| acc + x);
         total / n as f64
     }
 
@@ -333,7 +334,7 @@ impl Person<'_> {
                 let w = self.weight_on(a.date).unwrap_or(fallback_bw);
                 activity_kcal_net(a.met, w, a.minutes / 60.0)
             })
-            .sum();
+            .fold(0.0, |acc, x| acc + x);
         total / n as f64
     }
 
@@ -448,6 +449,9 @@ pub(crate) fn run(
             "Estimated from BMI, age and sex (Jackson et al. 2002)",
         ),
     };
+    // The model needs a positive fat mass (ln F/F₀); an estimate outside 3–70 % (e.g. Jackson's
+    // equation at a very low BMI) is held to that range, and the value used is the one reported.
+    let bf0 = bf0.clamp(3.0, 70.0);
     let fm0 = bw0 * bf0 / 100.0;
     let mut equation = s.equation;
     if equation.needs_lean_mass() && data.profile.body_fat_percent.is_none() {
@@ -795,6 +799,11 @@ fn options_columns() -> Table {
 
 /// The `options` table. With s the current slope and s* = −target/7 (kg/d):
 ///
+/// Refusals: a target above `max_safe_loss_kg_per_week` (0.5–1 kg/week, NIH/NHLBI 1998 clinical
+/// guidelines — from memory); a resulting intake below the floor (1200 women / 1500 men:
+/// common practice, aligned with the lower bound of the AHA/ACC/TOS 2013 prescription; no
+/// single formal source, from memory); walking above 120 min/d (common practice).
+///
 /// - intake: ΔEI = ρ·(s* − s). At the current weight ε·ΔBW is unchanged, so only the rate term
 ///   moves; the new rate is the starting rate and slows as weight falls.
 /// - walking: net kcal = (1 − β)·ρ·(s − s*), because in the model exercise is not offset by the
@@ -946,6 +955,9 @@ fn plateau_columns() -> Table {
 /// the habits: logged intake during the plateau when at least 4 days were logged, else the
 /// implied intake of the `window_days` before the plateau. The plateau band is the trend's
 /// slope interval widened to at least ±0.25 % of body weight per week.
+///
+/// Limitation: when the trend dates a plateau's onset later than the habit change that caused
+/// it, the "before" window already holds some of the new intake and the drift reads smaller.
 fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
     let mut t = plateau_columns();
     for per in p.trend.periods.iter().filter(|x| x.kind == "plateau") {

@@ -26,7 +26,7 @@
 //! constant through each day.
 //!
 //! # The linearisation ([`LinearisedModel`])
-//! Hall KD, Chow CC. *Am J Clin Nutr* 2011;94:66–74: ΔEI(t) = ε·ΔBW(t) + ρ·dBW/dt, with (as in
+//! Hall KD, Chow CC. *Am J Clin Nutr* 2011;94:66–74 (citation details from memory): ΔEI(t) = ε·ΔBW(t) + ρ·dBW/dt, with (as in
 //! the supplement of Sanghvi et al. *Am J Clin Nutr* 2015;102:353–358) α = C/FM₀,
 //! ρ = (ηF + ρF + α·(ηL + ρL)) / ((1 − β)(1 + α)),
 //! ε = [(γF + α·γL)/(1 + α) + δ₀] / (1 − β), β = β_TEF + β_AT; the Δδ term is taken as 0
@@ -50,7 +50,8 @@ pub const BETA_TEF: f64 = 0.10;
 pub const BETA_AT: f64 = 0.14;
 /// Time constant of adaptive thermogenesis, days (Hall et al. 2011).
 pub const TAU_AT: f64 = 14.0;
-/// Forbes constant C in dL/dF = C/F, kg (Forbes 2000, Ann N Y Acad Sci 904:359).
+/// Forbes constant C in dL/dF = C/F, kg (Hall et al. 2011 parameter set; the underlying
+/// partition is Forbes 2000, Ann N Y Acad Sci 904:359 — citation from memory).
 pub const FORBES_C: f64 = 10.4;
 
 /// Smallest fat mass the integrator lets the model reach, kg (keeps ln(F/F₀) finite).
@@ -61,8 +62,9 @@ const MIN_FAT_KG: f64 = 0.5;
 ///
 /// # Formula
 /// With the Forbes partition the lean fraction of a weight change is p = C/(C + FM)
-/// (Forbes 2000, Ann N Y Acad Sci 904:359), so the energy density is
-/// (1 − p)·ρF + p·ρL (Hall 2008, Int J Obes 32:573, makes the point that it is not constant).
+/// (Forbes 2000, Ann N Y Acad Sci 904:359, from memory), so the energy density is
+/// (1 − p)·ρF + p·ρL (Hall 2008, Int J Obes 32:573, from memory, makes the point that it is
+/// not constant).
 pub fn energy_density_of_weight_change(fm_kg: f64) -> f64 {
     let p = FORBES_C / (FORBES_C + fm_kg);
     (1.0 - p) * RHO_F + p * RHO_L

@@ -132,7 +132,7 @@ pub fn harris_benedict_revised(sex: Sex, weight_kg: f64, height_cm: f64, age_yea
 /// # Formula
 /// RMR = 370 + 21.6·LBM (LBM in kg, never pounds). The form is that of Cunningham's 1991
 /// review (*Am J Clin Nutr* 1991;54:963–969); the Katch–McArdle textbook attribution is
-/// customary.
+/// customary (from memory).
 pub fn katch_mcardle(lean_kg: f64) -> f64 {
     370.0 + 21.6 * lean_kg
 }
@@ -140,7 +140,8 @@ pub fn katch_mcardle(lean_kg: f64) -> f64 {
 /// Resting energy from lean body mass, Cunningham 1980, kcal/d.
 ///
 /// # Formula
-/// RMR = 500 + 22·LBM (kg). Cunningham JJ. *Am J Clin Nutr* 1980;33:2372–2374.
+/// RMR = 500 + 22·LBM (kg). Cunningham JJ. *Am J Clin Nutr* 1980;33:2372–2374 (the form is a
+/// secondary transcription; citation details from memory).
 pub fn cunningham(lean_kg: f64) -> f64 {
     500.0 + 22.0 * lean_kg
 }

@@ -116,7 +116,8 @@ impl MetricModule for EnergyModule {
                 "kg/wk",
                 0.1,
                 2.0,
-                "Fastest rate the options will propose (NIH/NHLBI 1998: 0.5–1 kg per week)",
+                "Fastest rate the options will propose (NIH/NHLBI 1998 guidelines: 0.5–1 kg per \
+                 week; from memory)",
             ),
             number(
                 "intake_floor_female",

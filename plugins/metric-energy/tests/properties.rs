@@ -106,7 +106,7 @@ fn daily_walking_then_stopping_gives_a_plateau_then_regain_toward_the_start() {
 
 // ---- implied-intake interval coverage on simulated participants ----
 
-/// SplitMix64 (Steele, Lea & Flood 2014), a small fixed-seed generator for the test.
+/// SplitMix64 (Steele, Lea & Flood 2014, from memory), a small fixed-seed generator.
 struct SplitMix(u64);
 
 impl SplitMix {
