@@ -1,0 +1,420 @@
+//! Small-cell suppression for count tables linked by additive relations.
+//!
+//! A group report is, for this purpose, a set of count *cells* (enrolled, withdrawn, people
+//! reaching 5 % loss, people in a histogram bin, …) and a set of *relations* `total = Σ parts`
+//! that a reader can use to recover a hidden cell by subtraction (enrolled = active + withdrawn;
+//! the histogram bins add up to the number started; the program's count is the sum over the
+//! sites' counts; …). The policy follows the CMS Cell Size Suppression Policy (REFERENCE §8.4):
+//! no count from 1 to `min_cell_size − 1` is shown, 0 may be shown, and no hidden count may be
+//! derivable from the shown ones.
+//!
+//! The algorithm ([`CellTable::apply`]):
+//! 1. *Primary suppression*: hide every cell with `1 ≤ value < min_cell_size`.
+//! 2. *Complementary suppression*: in every relation with exactly one hidden member, hide one
+//!    more member, repeated until no relation has exactly one hidden member.
+//! 3. *Linear check*: a hidden cell can also be recovered by combining several relations (the
+//!    program total from one split, then a site count by subtracting the others). The hidden
+//!    cells are treated as unknowns of the linear system formed by all relations; a hidden cell
+//!    whose value the system determines (Gaussian elimination, reduced row echelon form) gets
+//!    one more complement, and steps 2–3 repeat. Each round hides at least one more cell, so
+//!    the loop ends.
+//!
+//! The complement is the shown member with the lowest *priority* (callers rank cells so that
+//! key denominators such as "started" survive), then the smallest value ("next-smallest cell",
+//! REFERENCE §8.4), preferring non-zero cells (a hidden zero protects little).
+
+/// Handle to one cell of a [`CellTable`].
+pub type CellId = usize;
+
+#[derive(Debug, Clone)]
+struct Cell {
+    value: u64,
+    priority: u8,
+    suppressed: bool,
+}
+
+/// One additive relation `total = Σ parts` between cells.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Relation {
+    /// The cell that is the sum.
+    pub total: CellId,
+    /// The cells that add up to it.
+    pub parts: Vec<CellId>,
+}
+
+impl Relation {
+    fn members(&self) -> impl Iterator<Item = CellId> + '_ {
+        std::iter::once(self.total).chain(self.parts.iter().copied())
+    }
+}
+
+/// Count cells plus the relations between them, and which cells are hidden.
+#[derive(Debug, Clone, Default)]
+pub struct CellTable {
+    cells: Vec<Cell>,
+    relations: Vec<Relation>,
+}
+
+impl CellTable {
+    /// An empty table.
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// Adds a count cell. Lower `priority` cells are chosen first as complements.
+    pub fn add_cell(&mut self, value: u64, priority: u8) -> CellId {
+        self.cells.push(Cell {
+            value,
+            priority,
+            suppressed: false,
+        });
+        self.cells.len() - 1
+    }
+
+    /// Adds the relation `total = Σ parts`.
+    ///
+    /// # Panics
+    /// In debug builds, if the values do not add up (a bug in the caller's bookkeeping).
+    pub fn add_relation(&mut self, total: CellId, parts: Vec<CellId>) {
+        debug_assert_eq!(
+            self.cells[total].value,
+            parts.iter().map(|&p| self.cells[p].value).sum::<u64>(),
+            "relation does not add up"
+        );
+        self.relations.push(Relation { total, parts });
+    }
+
+    /// The value of a cell (shown or not).
+    pub fn value(&self, c: CellId) -> u64 {
+        self.cells[c].value
+    }
+
+    /// True when the cell must not be shown.
+    pub fn is_suppressed(&self, c: CellId) -> bool {
+        self.cells[c].suppressed
+    }
+
+    /// The relations of the table.
+    pub fn relations(&self) -> &[Relation] {
+        &self.relations
+    }
+
+    /// Runs primary and complementary suppression for the given minimum cell size.
+    pub fn apply(&mut self, min_cell_size: u32) {
+        let min = u64::from(min_cell_size);
+        for c in &mut self.cells {
+            if c.value >= 1 && c.value < min {
+                c.suppressed = true;
+            }
+        }
+        loop {
+            self.single_relation_pass();
+            let suppressed: Vec<bool> = self.cells.iter().map(|c| c.suppressed).collect();
+            let det = determined(&suppressed, &self.relations);
+            // A determined zero tells nothing that a shown zero would not.
+            let leak = (0..self.cells.len()).find(|&i| det[i] && self.cells[i].value != 0);
+            let Some(u) = leak else { break };
+            match self.complement_near(u) {
+                Some(c) => self.cells[c].suppressed = true,
+                None => {
+                    // Unreachable for consistent tables: a determined non-zero cell needs a
+                    // shown non-zero cell somewhere in its relations. Hide everything linked.
+                    debug_assert!(false, "no complement found for a determined cell");
+                    for c in &mut self.cells {
+                        c.suppressed = true;
+                    }
+                    break;
+                }
+            }
+        }
+    }
+
+    /// Step 2: every relation with exactly one hidden member gets a complement.
+    fn single_relation_pass(&mut self) {
+        loop {
+            let mut changed = false;
+            for r in 0..self.relations.len() {
+                let hidden = self.relations[r]
+                    .members()
+                    .filter(|&m| self.cells[m].suppressed)
+                    .count();
+                if hidden == 1
+                    && let Some(c) = self.best_complement(&[r])
+                {
+                    self.cells[c].suppressed = true;
+                    changed = true;
+                }
+            }
+            if !changed {
+                break;
+            }
+        }
+    }
+
+    /// The shown member of the given relations to hide next: lowest priority, then smallest
+    /// value, preferring non-zero values; ties go to the lowest id so runs are reproducible.
+    fn best_complement(&self, relations: &[usize]) -> Option<CellId> {
+        relations
+            .iter()
+            .flat_map(|&r| self.relations[r].members())
+            .filter(|&m| !self.cells[m].suppressed)
+            .min_by_key(|&m| {
+                let c = &self.cells[m];
+                (c.value == 0, c.priority, c.value, m)
+            })
+    }
+
+    /// Step 3 complement for a determined cell `u`: searched first in the relations containing
+    /// `u`, then breadth-first in relations reached through other hidden cells.
+    fn complement_near(&self, u: CellId) -> Option<CellId> {
+        let mut seen_cells = vec![false; self.cells.len()];
+        let mut seen_rel = vec![false; self.relations.len()];
+        let mut frontier = vec![u];
+        seen_cells[u] = true;
+        while !frontier.is_empty() {
+            let level: Vec<usize> = (0..self.relations.len())
+                .filter(|&r| {
+                    !seen_rel[r] && self.relations[r].members().any(|m| frontier.contains(&m))
+                })
+                .collect();
+            if level.is_empty() {
+                return None;
+            }
+            for &r in &level {
+                seen_rel[r] = true;
+            }
+            if let Some(c) = self.best_complement(&level)
+                && self.cells[c].value != 0
+            {
+                return Some(c);
+            }
+            let mut next = Vec::new();
+            for &r in &level {
+                for m in self.relations[r].members() {
+                    if self.cells[m].suppressed && !seen_cells[m] {
+                        seen_cells[m] = true;
+                        next.push(m);
+                    }
+                }
+            }
+            frontier = next;
+        }
+        None
+    }
+}
+
+/// Which hidden cells the relations determine, given which cells are hidden.
+///
+/// # Formula
+/// Hidden cells are the unknowns `x`; each relation `total − Σ parts = 0` with the shown cells
+/// moved to the right-hand side is one row of `A·x = b`. After reduction to row echelon form, an
+/// unknown is determined exactly when it is a pivot and its row has no entries in free columns
+/// (then `x_u = b'_row` whatever the free unknowns are).
+///
+/// Returns one flag per cell (false for shown cells).
+pub fn determined(suppressed: &[bool], relations: &[Relation]) -> Vec<bool> {
+    let mut col_of = vec![usize::MAX; suppressed.len()];
+    let mut cell_of = Vec::new();
+    for (i, &s) in suppressed.iter().enumerate() {
+        if s {
+            col_of[i] = cell_of.len();
+            cell_of.push(i);
+        }
+    }
+    let ncols = cell_of.len();
+    let mut out = vec![false; suppressed.len()];
+    if ncols == 0 {
+        return out;
+    }
+    let mut rows: Vec<Vec<f64>> = Vec::new();
+    for r in relations {
+        let mut row = vec![0.0; ncols];
+        let mut any = false;
+        if suppressed[r.total] {
+            row[col_of[r.total]] += 1.0;
+            any = true;
+        }
+        for &p in &r.parts {
+            if suppressed[p] {
+                row[col_of[p]] -= 1.0;
+                any = true;
+            }
+        }
+        if any {
+            rows.push(row);
+        }
+    }
+    // Entries are small integers combined by ±1 steps, so 1e-9 separates zero from non-zero.
+    const EPS: f64 = 1e-9;
+    let mut pivots = Vec::new(); // (row, col)
+    let mut r0 = 0;
+    for col in 0..ncols {
+        if r0 == rows.len() {
+            break;
+        }
+        let Some(p) =
+            (r0..rows.len()).max_by(|&a, &b| rows[a][col].abs().total_cmp(&rows[b][col].abs()))
+        else {
+            break;
+        };
+        if rows[p][col].abs() < EPS {
+            continue;
+        }
+        rows.swap(r0, p);
+        let piv = rows[r0][col];
+        for v in rows[r0].iter_mut() {
+            *v /= piv;
+        }
+        let pivot_row = rows[r0].clone();
+        for (i, row) in rows.iter_mut().enumerate() {
+            if i != r0 && row[col].abs() >= EPS {
+                let f = row[col];
+                for (v, pv) in row.iter_mut().zip(&pivot_row) {
+                    *v -= f * pv;
+                }
+            }
+        }
+        pivots.push((r0, col));
+        r0 += 1;
+    }
+    for (r, c) in pivots {
+        let alone = rows[r]
+            .iter()
+            .enumerate()
+            .all(|(j, v)| j == c || v.abs() < EPS);
+        if alone {
+            out[cell_of[c]] = true;
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn row(values: &[u64], total: u64) -> (CellTable, Vec<CellId>, CellId) {
+        let mut t = CellTable::new();
+        let parts: Vec<CellId> = values.iter().map(|&v| t.add_cell(v, 0)).collect();
+        let tot = t.add_cell(total, 0);
+        t.add_relation(tot, parts.clone());
+        (t, parts, tot)
+    }
+
+    #[test]
+    fn reference_row_hides_the_small_cell_and_a_complement() {
+        // REFERENCE §8.4 test: the row [3, 25, 40, total 68] must not display 3, and must also
+        // hide 25 (or the total) (CMS Cell Size Suppression Policy, complementary suppression).
+        let (mut t, parts, tot) = row(&[3, 25, 40], 68);
+        t.apply(11);
+        assert!(t.is_suppressed(parts[0]));
+        assert!(t.is_suppressed(parts[1]) || t.is_suppressed(tot));
+        // Our rule picks the next-smallest cell, and nothing else.
+        assert!(t.is_suppressed(parts[1]));
+        assert!(!t.is_suppressed(parts[2]) && !t.is_suppressed(tot));
+    }
+
+    #[test]
+    fn zeros_are_shown_and_nothing_big_is_hidden() {
+        // CMS policy: 0 may be shown.
+        let (mut t, parts, tot) = row(&[0, 25, 40], 65);
+        t.apply(11);
+        assert!(parts.iter().chain([&tot]).all(|&c| !t.is_suppressed(c)));
+    }
+
+    #[test]
+    fn a_zero_is_not_the_first_choice_of_complement() {
+        let (mut t, parts, tot) = row(&[4, 0, 30], 34);
+        t.apply(11);
+        assert!(t.is_suppressed(parts[0]));
+        assert!(!t.is_suppressed(parts[1]), "the zero stays shown");
+        assert!(t.is_suppressed(parts[2]) || t.is_suppressed(tot));
+    }
+
+    #[test]
+    fn priority_protects_a_key_total() {
+        // started = 2 (low priority) + 40; total "enrolled" has a high priority: the complement
+        // must be the other part even though the total is smaller than nothing else.
+        let mut t = CellTable::new();
+        let a = t.add_cell(2, 0);
+        let b = t.add_cell(40, 0);
+        let tot = t.add_cell(42, 9);
+        t.add_relation(tot, vec![a, b]);
+        t.apply(11);
+        assert!(t.is_suppressed(a) && t.is_suppressed(b) && !t.is_suppressed(tot));
+    }
+
+    #[test]
+    fn recovery_through_two_relations_is_blocked() {
+        // Two splits of the same 40 people: sites {A: 5, B: 35} and teams {X: 20, Y: 20}.
+        // Primary hides A (5); the single-relation rule then hides B or the program total. If it
+        // hid the total, the teams would give it back (20 + 20) and then A = 40 − 35: the linear
+        // check has to catch that.
+        let mut t = CellTable::new();
+        let a = t.add_cell(5, 0);
+        let b = t.add_cell(35, 0);
+        let x = t.add_cell(20, 0);
+        let y = t.add_cell(20, 0);
+        let total = t.add_cell(40, 0); // lowest priority would not matter: values decide
+        t.add_relation(total, vec![a, b]);
+        t.add_relation(total, vec![x, y]);
+        t.apply(11);
+        let s: Vec<bool> = [a, b, x, y, total]
+            .iter()
+            .map(|&c| t.is_suppressed(c))
+            .collect();
+        let det = determined(
+            &(0..5).map(|c| t.is_suppressed(c)).collect::<Vec<_>>(),
+            t.relations(),
+        );
+        assert!(s[0]);
+        assert!(!det[a], "A must not be determined: {s:?}");
+    }
+
+    #[test]
+    fn linear_check_catches_what_single_relations_miss() {
+        // total T hidden, A hidden; parts of a second split of T all shown → T known → A known.
+        let suppressed = [true, false, false, false, true]; // A, B, X, Y, T
+        let rels = vec![
+            Relation {
+                total: 4,
+                parts: vec![0, 1],
+            },
+            Relation {
+                total: 4,
+                parts: vec![2, 3],
+            },
+        ];
+        let det = determined(&suppressed, &rels);
+        assert!(det[0] && det[4]);
+        // Hiding X as well leaves T and A undetermined (one equation, three unknowns... A, T, X).
+        let suppressed = [true, false, true, false, true];
+        let det = determined(&suppressed, &rels);
+        assert!(!det[0] && !det[2] && !det[4]);
+    }
+
+    #[test]
+    fn cross_table_with_four_hidden_cells_is_safe() {
+        // 2 × 2 table of hidden cells with all margins shown: rank 3 for 4 unknowns.
+        let suppressed = [true, true, true, true, false, false, false, false];
+        let rels = vec![
+            Relation {
+                total: 4,
+                parts: vec![0, 1],
+            },
+            Relation {
+                total: 5,
+                parts: vec![2, 3],
+            },
+            Relation {
+                total: 6,
+                parts: vec![0, 2],
+            },
+            Relation {
+                total: 7,
+                parts: vec![1, 3],
+            },
+        ];
+        assert!(determined(&suppressed, &rels).iter().all(|d| !d));
+    }
+}

@@ -1,0 +1,664 @@
+//! Tests of the group report: REFERENCE §8.3 missing-data example, section withholding, the
+//! small-group merge rule, and a generic recovery-by-subtraction checker run over the
+//! serialised report of crafted and generated programs.
+
+use std::collections::{BTreeMap, HashMap};
+
+use serde_json::Value;
+
+use super::summary::build;
+use super::*;
+
+fn person(site: &str, baseline: f64, outcome: Option<f64>) -> ParticipantSummary {
+    ParticipantSummary {
+        groups: BTreeMap::from([("site".to_string(), site.to_string())]),
+        enrolled: true,
+        started: true,
+        baseline_kg: Some(baseline),
+        outcome_kg: outcome,
+        last_observed_kg: outcome,
+        ..Default::default()
+    }
+}
+
+fn opts(min: u32, group_by: &[&str]) -> GroupOptions {
+    GroupOptions {
+        min_cell_size: min,
+        group_by: group_by.iter().map(|s| s.to_string()).collect(),
+        confidence: 0.95,
+    }
+}
+
+fn val<T: Copy>(s: &Shown<T>) -> T {
+    *s.value().expect("figure should be shown")
+}
+
+#[test]
+fn missing_data_rules_reference_example() {
+    // REFERENCE §8.3 check [D] (computed from the stated rules; a regression value for our
+    // implementation): baselines [100, 90, 80, 110], week-12 [95, 86, missing, 104], last observed
+    // for the dropout 78 kg → LOCF −4.3497 %, BOCF −3.7247 %, completers −4.9663 %.
+    let mut rows = vec![
+        person("A", 100.0, Some(95.0)),
+        person("A", 90.0, Some(86.0)),
+        person("A", 80.0, None),
+        person("A", 110.0, Some(104.0)),
+    ];
+    rows[2].last_observed_kg = Some(78.0);
+    // Minimum 0: nothing is suppressed, so the figures themselves can be checked.
+    let r = summarize(&rows, &opts(0, &[]));
+    let wc = &r.program.stats.as_ref().unwrap().weight_change;
+    assert!((val(&wc.locf.percent.mean) - -4.3497).abs() < 1e-4);
+    assert!((val(&wc.bocf.percent.mean) - -3.7247).abs() < 1e-4);
+    assert!((val(&wc.completers.percent.mean) - -4.9663).abs() < 1e-4);
+    assert_eq!(val(&wc.bocf.n), 4);
+    assert_eq!(val(&wc.completers.n), 3);
+    // kg: BOCF (−5 − 4 + 0 − 6)/4, LOCF (−5 − 4 − 2 − 6)/4 (arithmetic on the example).
+    assert!((val(&wc.bocf.kg.mean) - -3.75).abs() < 1e-12);
+    assert!((val(&wc.locf.kg.mean) - -4.25).abs() < 1e-12);
+    let e = &r.program.stats.as_ref().unwrap().enrolment;
+    assert_eq!((val(&e.started), val(&e.with_outcome)), (4, 3));
+    assert!((val(&e.retention_percent) - 75.0).abs() < 1e-12);
+}
+
+#[test]
+fn milestones_and_histogram_follow_bocf() {
+    // Changes −12, −10 (exactly), −6, −5 (exactly), −1, 0 (missing → BOCF), +4 %.
+    let rows = vec![
+        person("A", 100.0, Some(88.0)),
+        person("A", 90.0, Some(81.0)),
+        person("A", 100.0, Some(94.0)),
+        person("A", 80.0, Some(76.0)),
+        person("A", 100.0, Some(99.0)),
+        person("A", 100.0, None),
+        person("A", 100.0, Some(104.0)),
+    ];
+    let r = summarize(&rows, &opts(0, &[]));
+    let s = r.program.stats.unwrap();
+    let counts: Vec<u64> = s.histogram.bins.iter().map(|b| val(&b.count)).collect();
+    assert_eq!(counts, vec![2, 0, 2, 0, 1, 1, 1]);
+    let reached: Vec<u64> = s.milestones.iter().map(|m| val(&m.reached)).collect();
+    assert_eq!(reached, vec![4, 4, 2, 2]); // ≥3, ≥5, ≥7, ≥10 %
+    // 4/7 with the Wilson interval (Wilson 1927 formula, as in stats::wilson).
+    let m5 = &s.milestones[1];
+    assert!((val(&m5.percent) - 400.0 / 7.0).abs() < 1e-9);
+    let (lo, hi) = stats::wilson(4, 7, stats::z_for_confidence(0.95));
+    assert_eq!(
+        val(&m5.ci),
+        Interval {
+            lo: 100.0 * lo,
+            hi: 100.0 * hi
+        }
+    );
+}
+
+#[test]
+fn small_program_is_withheld() {
+    let rows: Vec<_> = (0..10)
+        .map(|i| person("A", 90.0 + i as f64, Some(88.0)))
+        .collect();
+    let r = summarize(&rows, &opts(11, &["site"]));
+    assert!(r.program.stats.is_none());
+    assert_eq!(
+        r.program.withheld.as_deref(),
+        Some("fewer than 11 participants — withheld")
+    );
+    assert!(r.splits[0].sections.iter().all(|s| s.stats.is_none()));
+    assert!(r.splits[0].note.is_some());
+}
+
+#[test]
+fn zero_counts_are_shown() {
+    // CMS Cell Size Suppression Policy: 0 may be shown.
+    let rows: Vec<_> = (0..20)
+        .map(|i| person("A", 80.0 + i as f64, Some(79.0 + i as f64)))
+        .collect();
+    let r = summarize(&rows, &opts(11, &[]));
+    let s = r.program.stats.unwrap();
+    assert_eq!(s.enrolment.withdrawn, Shown::Value(0));
+    assert_eq!(s.enrolment.not_started, Shown::Value(0));
+    assert_eq!(s.enrolment.without_outcome, Shown::Value(0));
+    assert_eq!(s.enrolment.active, Shown::Value(20));
+    assert_eq!(s.clinician_review_flags, Shown::Value(0));
+}
+
+/// A deterministic pseudo-random generator (64-bit LCG, Knuth MMIX constants) for test data.
+struct Lcg(u64);
+impl Lcg {
+    fn next(&mut self) -> f64 {
+        self.0 = self
+            .0
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        (self.0 >> 11) as f64 / (1u64 << 53) as f64
+    }
+    fn pick<'a>(&mut self, items: &[&'a str], weights: &[f64]) -> &'a str {
+        let total: f64 = weights.iter().sum();
+        let mut x = self.next() * total;
+        for (i, w) in weights.iter().enumerate() {
+            if x < *w {
+                return items[i];
+            }
+            x -= w;
+        }
+        items[items.len() - 1]
+    }
+}
+
+fn generated(seed: u64, n: usize, site_weights: &[f64]) -> Vec<ParticipantSummary> {
+    let mut g = Lcg(seed);
+    let sites = ["Kiln Row", "Harbour Yard", "Mill Street", "Foundry Lane"];
+    let teams = ["Day", "Night", "Office"];
+    (0..n)
+        .map(|_| {
+            let mut groups = BTreeMap::new();
+            groups.insert("site".into(), g.pick(&sites, site_weights).to_string());
+            if g.next() < 0.95 {
+                groups.insert("team".into(), g.pick(&teams, &[0.5, 0.3, 0.2]).to_string());
+            }
+            let baseline = 70.0 + 50.0 * g.next();
+            let started = g.next() < 0.92;
+            let withdrawn = g.next() < 0.15;
+            let change = -12.0 + 16.0 * g.next();
+            let has_outcome = started && !withdrawn && g.next() < 0.85;
+            let weeks = (g.next() * 12.0) as u32;
+            ParticipantSummary {
+                groups,
+                enrolled: g.next() < 0.97,
+                withdrawn,
+                started,
+                baseline_kg: started.then_some(baseline),
+                outcome_kg: has_outcome.then(|| baseline * (1.0 + change / 100.0)),
+                last_observed_kg: (g.next() < 0.7).then(|| baseline * (1.0 + change / 200.0)),
+                weekly_change_percent: (0..weeks)
+                    .map(|w| (w, change * f64::from(w) / 12.0))
+                    .collect(),
+                activity_minutes_per_week: (g.next() < 0.8).then(|| 300.0 * g.next()),
+                weigh_ins_per_week: (g.next() < 0.9).then(|| 7.0 * g.next()),
+                food_log_days_per_week: (g.next() < 0.6).then(|| 7.0 * g.next()),
+                attendance_percent: (g.next() < 0.9).then(|| 100.0 * g.next()),
+                in_plateau: match g.next() {
+                    x if x < 0.2 => Some(true),
+                    x if x < 0.8 => Some(false),
+                    _ => None,
+                },
+                clinical_flags: if g.next() < 0.1 { 1 } else { 0 },
+            }
+        })
+        .collect()
+}
+
+// ---------------------------------------------------------------------------------------------
+// The generic checker. It knows the report *structure* (which serialised counts add up to which)
+// and nothing of the suppression code: the relations are written again here from the field names.
+
+/// Count cells of one shown section by name → the serialised `Shown` object.
+fn section_cells(stats: &Value) -> BTreeMap<String, Value> {
+    let mut c = BTreeMap::new();
+    for f in [
+        "enrolled",
+        "active",
+        "withdrawn",
+        "started",
+        "not_started",
+        "with_outcome",
+        "without_outcome",
+    ] {
+        c.insert(format!("enrolment.{f}"), stats["enrolment"][f].clone());
+    }
+    for m in stats["milestones"].as_array().unwrap() {
+        let k = m["loss_at_least_percent"].as_f64().unwrap();
+        c.insert(format!("milestone.{k}.reached"), m["reached"].clone());
+        c.insert(
+            format!("milestone.{k}.not_reached"),
+            m["not_reached"].clone(),
+        );
+    }
+    for (i, b) in stats["histogram"]["bins"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .enumerate()
+    {
+        c.insert(format!("bin.{i}"), b["count"].clone());
+    }
+    for w in stats["trajectory"].as_array().unwrap() {
+        c.insert(format!("week.{}", w["week"]), w["n"].clone());
+    }
+    for (name, a) in stats["adherence"].as_object().unwrap() {
+        c.insert(format!("adherence.{name}"), a["n"].clone());
+    }
+    for f in [
+        "with_verdict",
+        "in_plateau",
+        "not_in_plateau",
+        "insufficient_data",
+    ] {
+        c.insert(format!("plateau.{f}"), stats["plateau"][f].clone());
+    }
+    c.insert("flags".into(), stats["clinician_review_flags"].clone());
+    c
+}
+
+/// Relations `total = Σ parts` inside one section, by cell name.
+fn section_relations(stats: &Value) -> Vec<(String, Vec<String>)> {
+    let s = |x: &str| x.to_string();
+    let mut r = vec![
+        (
+            s("enrolment.enrolled"),
+            vec![s("enrolment.active"), s("enrolment.withdrawn")],
+        ),
+        (
+            s("enrolment.enrolled"),
+            vec![s("enrolment.started"), s("enrolment.not_started")],
+        ),
+        (
+            s("enrolment.started"),
+            vec![s("enrolment.with_outcome"), s("enrolment.without_outcome")],
+        ),
+        (
+            s("enrolment.enrolled"),
+            vec![s("plateau.with_verdict"), s("plateau.insufficient_data")],
+        ),
+        (
+            s("plateau.with_verdict"),
+            vec![s("plateau.in_plateau"), s("plateau.not_in_plateau")],
+        ),
+    ];
+    let bins = stats["histogram"]["bins"].as_array().unwrap();
+    r.push((
+        s("enrolment.started"),
+        (0..bins.len()).map(|i| format!("bin.{i}")).collect(),
+    ));
+    for m in stats["milestones"].as_array().unwrap() {
+        let k = m["loss_at_least_percent"].as_f64().unwrap();
+        r.push((
+            s("enrolment.started"),
+            vec![
+                format!("milestone.{k}.reached"),
+                format!("milestone.{k}.not_reached"),
+            ],
+        ));
+        // Loss bins whose upper bound is at or below −k hold exactly those reaching k %.
+        let parts = bins
+            .iter()
+            .enumerate()
+            .filter(|(_, b)| b["upper_percent"].as_f64().is_some_and(|u| u <= -k))
+            .map(|(i, _)| format!("bin.{i}"))
+            .collect();
+        r.push((format!("milestone.{k}.reached"), parts));
+    }
+    r
+}
+
+fn is_hidden(v: &Value) -> bool {
+    v.get("suppressed").is_some()
+}
+
+/// Every shown section of the serialised report: (section id, stats).
+fn shown_sections(report: &Value) -> Vec<(String, Value)> {
+    let mut out = Vec::new();
+    if !report["program"]["stats"].is_null() {
+        out.push(("program".to_string(), report["program"]["stats"].clone()));
+    }
+    for sp in report["splits"].as_array().unwrap() {
+        for sec in sp["sections"].as_array().unwrap() {
+            if !sec["stats"].is_null() {
+                let id = format!("{}={}", sp["key"], sec["label"]);
+                out.push((id, sec["stats"].clone()));
+            }
+        }
+    }
+    out
+}
+
+/// Which unknowns of `A·x = b` are determined (independent re-implementation for the checker:
+/// Gauss–Jordan elimination over exact rationals would be overkill; entries stay small
+/// integers here, so f64 with a 1e-9 zero test is exact enough).
+fn determined_unknowns(rows: &[Vec<f64>], ncols: usize) -> Vec<bool> {
+    let mut m = rows.to_vec();
+    let mut pivots = Vec::new();
+    let mut r = 0;
+    for c in 0..ncols {
+        let Some(p) = (r..m.len()).find(|&i| m[i][c].abs() > 1e-9) else {
+            continue;
+        };
+        m.swap(r, p);
+        let pv = m[r][c];
+        m[r].iter_mut().for_each(|v| *v /= pv);
+        let prow = m[r].clone();
+        for (i, row) in m.iter_mut().enumerate() {
+            if i != r && row[c].abs() > 1e-9 {
+                let f = row[c];
+                row.iter_mut().zip(&prow).for_each(|(v, p)| *v -= f * p);
+            }
+        }
+        pivots.push((r, c));
+        r += 1;
+        if r == m.len() {
+            break;
+        }
+    }
+    let mut det = vec![false; ncols];
+    for (r, c) in pivots {
+        det[c] = m[r]
+            .iter()
+            .enumerate()
+            .all(|(j, v)| j == c || v.abs() < 1e-9);
+    }
+    det
+}
+
+/// Asserts that the serialised report leaks no small count. `truth` is the same report built
+/// without suppression. Checks: (1) no shown count is in [1, min − 1]; (2) no relation (inside a
+/// section, or program = Σ shown sections of a split) has exactly one hidden member, i.e. no
+/// hidden count equals a shown total minus shown parts; (3) no hidden count with a true value
+/// in [1, min − 1] is determined by all relations together; (4) every shown share, mean or
+/// median rests on shown counts.
+fn assert_no_recovery(report: &Value, truth: &Value) {
+    let min = report["min_cell_size"].as_u64().unwrap();
+    let sections = shown_sections(report);
+    let truth_sections: HashMap<String, Value> = shown_sections(truth).into_iter().collect();
+    // Global cells: (section id, name) → (hidden, true value).
+    let mut cells: BTreeMap<(String, String), (bool, u64)> = BTreeMap::new();
+    let mut relations: Vec<((String, String), Vec<(String, String)>)> = Vec::new();
+    for (id, stats) in &sections {
+        let t = section_cells(&truth_sections[id]);
+        for (name, v) in section_cells(stats) {
+            let true_value = t[&name]["value"].as_u64().unwrap();
+            if let Some(shown) = v["value"].as_u64() {
+                assert_eq!(shown, true_value, "{id} {name}");
+                assert!(
+                    shown == 0 || shown >= min,
+                    "small count shown: {id} {name} = {shown}"
+                );
+            }
+            cells.insert((id.clone(), name), (is_hidden(&v), true_value));
+        }
+        for (tot, parts) in section_relations(stats) {
+            relations.push((
+                (id.clone(), tot),
+                parts.into_iter().map(|p| (id.clone(), p)).collect(),
+            ));
+        }
+        // (4) derived figures.
+        let e = &stats["enrolment"];
+        if !is_hidden(&e["retention_percent"]) {
+            assert!(
+                !is_hidden(&e["with_outcome"]) && !is_hidden(&e["started"]),
+                "{id}"
+            );
+        }
+        for m in stats["milestones"].as_array().unwrap() {
+            if !is_hidden(&m["percent"]) || !is_hidden(&m["ci"]) {
+                assert!(
+                    !is_hidden(&m["reached"]) && !is_hidden(&m["denominator"]),
+                    "{id}"
+                );
+            }
+        }
+        for line in ["bocf", "locf", "completers"] {
+            let l = &stats["weight_change"][line];
+            for var in ["percent", "kg"] {
+                for f in ["mean", "sd", "mean_ci", "median", "median_ci"] {
+                    if !is_hidden(&l[var][f]) {
+                        assert!(!is_hidden(&l["n"]), "{id} {line} {var} {f}");
+                    }
+                }
+            }
+        }
+        for w in stats["trajectory"].as_array().unwrap() {
+            if !is_hidden(&w["mean_percent"]) || !is_hidden(&w["ci"]) {
+                assert!(!is_hidden(&w["n"]), "{id} week {}", w["week"]);
+            }
+        }
+        for a in stats["adherence"].as_object().unwrap().values() {
+            if !is_hidden(&a["median"]) {
+                assert!(!is_hidden(&a["n"]), "{id}");
+            }
+        }
+        let p = &stats["plateau"];
+        if !is_hidden(&p["percent"]) || !is_hidden(&p["ci"]) {
+            assert!(
+                !is_hidden(&p["in_plateau"]) && !is_hidden(&p["with_verdict"]),
+                "{id}"
+            );
+        }
+    }
+    // Program = Σ shown sections of each split, for every count.
+    if let Some((_, prog)) = sections.iter().find(|(id, _)| id == "program") {
+        for sp in report["splits"].as_array().unwrap() {
+            let ids: Vec<&String> = sections
+                .iter()
+                .map(|(id, _)| id)
+                .filter(|id| id.starts_with(&format!("{}=", sp["key"])))
+                .collect();
+            if ids.is_empty() {
+                continue;
+            }
+            for name in section_cells(prog).keys() {
+                relations.push((
+                    ("program".into(), name.clone()),
+                    ids.iter().map(|id| ((*id).clone(), name.clone())).collect(),
+                ));
+            }
+        }
+    }
+    // (2) single relations, and the relations really add up in the truth.
+    for (tot, parts) in &relations {
+        let sum: u64 = parts.iter().map(|p| cells[p].1).sum();
+        assert_eq!(cells[tot].1, sum, "relation {tot:?} does not add up");
+        let hidden: Vec<_> = std::iter::once(tot)
+            .chain(parts)
+            .filter(|c| cells[*c].0)
+            .collect();
+        assert_ne!(hidden.len(), 1, "recoverable by subtraction: {hidden:?}");
+    }
+    // (3) all relations together.
+    let unknowns: Vec<&(String, String)> =
+        cells.iter().filter(|(_, v)| v.0).map(|(k, _)| k).collect();
+    let col: HashMap<&(String, String), usize> =
+        unknowns.iter().enumerate().map(|(i, k)| (*k, i)).collect();
+    let rows: Vec<Vec<f64>> = relations
+        .iter()
+        .map(|(tot, parts)| {
+            let mut row = vec![0.0; unknowns.len()];
+            if let Some(&c) = col.get(tot) {
+                row[c] += 1.0;
+            }
+            for p in parts {
+                if let Some(&c) = col.get(p) {
+                    row[c] -= 1.0;
+                }
+            }
+            row
+        })
+        .filter(|row| row.iter().any(|v| *v != 0.0))
+        .collect();
+    let det = determined_unknowns(&rows, unknowns.len());
+    for (i, k) in unknowns.iter().enumerate() {
+        let v = cells[*k].1;
+        assert!(
+            !(det[i] && v >= 1 && v < min),
+            "hidden count {k:?} = {v} is determined by the shown counts"
+        );
+    }
+}
+
+fn check(rows: &[ParticipantSummary], o: &GroupOptions) -> Value {
+    let report = serde_json::to_value(summarize(rows, o)).unwrap();
+    let truth = serde_json::to_value(build(rows, o, false)).unwrap();
+    assert_no_recovery(&report, &truth);
+    report
+}
+
+#[test]
+fn three_sites_small_site_is_merged_and_nothing_is_recoverable() {
+    // Sites with 30, 25 and 4 started: the 4 would be program − 30 − 25 if only it were
+    // withheld, so it is reported together with the next-smallest site.
+    let mut rows = Vec::new();
+    for (site, n) in [("Kiln Row", 30), ("Harbour Yard", 25), ("Mill Street", 4)] {
+        for i in 0..n {
+            let b = 70.0 + i as f64;
+            let mut p = person(site, b, (i % 5 != 0).then_some(b * 0.95));
+            p.withdrawn = i % 9 == 3;
+            p.in_plateau = Some(i % 3 == 0);
+            p.weekly_change_percent = vec![(0, 0.0), (4, -2.0), (8, -4.0)];
+            rows.push(p);
+        }
+    }
+    let report = summarize(&rows, &opts(11, &["site"]));
+    let secs = &report.splits[0].sections;
+    let by_label: HashMap<&str, &Section> = secs.iter().map(|s| (s.label.as_str(), s)).collect();
+    assert!(by_label["Kiln Row"].stats.is_some());
+    for small in ["Mill Street", "Harbour Yard"] {
+        let s = by_label[small];
+        assert!(s.stats.is_none(), "{small} must not be shown on its own");
+        assert_eq!(
+            s.combined_into.as_deref(),
+            Some("Other site groups combined")
+        );
+    }
+    assert_eq!(
+        by_label["Mill Street"].withheld.as_deref(),
+        Some("fewer than 11 participants — withheld")
+    );
+    let comb = by_label["Other site groups combined"];
+    assert_eq!(comb.kind, SectionKind::Combined);
+    assert_eq!(comb.members, vec!["Harbour Yard", "Mill Street"]);
+    assert_eq!(val(&comb.stats.as_ref().unwrap().enrolment.started), 29);
+    check(&rows, &opts(11, &["site"]));
+}
+
+#[test]
+fn one_small_site_among_many_is_merged_with_the_next_smallest() {
+    let mut rows = Vec::new();
+    for (site, n) in [("A", 40), ("B", 15), ("C", 22), ("D", 3)] {
+        for i in 0..n {
+            rows.push(person(site, 80.0 + i as f64, Some(78.0 + i as f64)));
+        }
+    }
+    let r = summarize(&rows, &opts(11, &["site"]));
+    let comb = r.splits[0].sections.last().unwrap();
+    assert_eq!(comb.members, vec!["B", "D"]);
+    check(&rows, &opts(11, &["site"]));
+}
+
+#[test]
+fn split_made_only_of_small_groups_is_not_shown() {
+    let mut rows = Vec::new();
+    for (site, n) in [("A", 6), ("B", 7)] {
+        for i in 0..n {
+            rows.push(person(site, 80.0 + i as f64, Some(78.0)));
+        }
+    }
+    let r = summarize(&rows, &opts(11, &["site"]));
+    assert!(r.program.stats.is_some());
+    assert!(r.splits[0].sections.iter().all(|s| s.stats.is_none()));
+    assert!(r.splits[0].note.is_some());
+    check(&rows, &opts(11, &["site"]));
+}
+
+#[test]
+fn small_withdrawn_cell_gets_a_complement_inside_and_across_sections() {
+    // Program of 40 (A 20, B 20): 3 withdrawn, all in A.
+    let mut rows = Vec::new();
+    for (site, n) in [("A", 20), ("B", 20)] {
+        for i in 0..n {
+            let mut p = person(site, 80.0 + i as f64, Some(77.0 + i as f64));
+            p.withdrawn = site == "A" && i < 3;
+            rows.push(p);
+        }
+    }
+    let v = check(&rows, &opts(11, &["site"]));
+    let e = &v["program"]["stats"]["enrolment"];
+    assert!(is_hidden(&e["withdrawn"]));
+    assert!(is_hidden(&e["active"]) || is_hidden(&e["enrolled"]));
+    // Site B has 0 withdrawn: shown as 0.
+    let b = &v["splits"][0]["sections"][1]["stats"]["enrolment"];
+    assert_eq!(b["withdrawn"]["value"], 0);
+}
+
+#[test]
+fn generated_programs_leak_no_small_cell() {
+    // Deterministic generated programs of many shapes (sizes, uneven sites, two splits,
+    // missing team values); every report must pass the checker.
+    let shapes: [(usize, [f64; 4]); 5] = [
+        (60, [0.5, 0.3, 0.15, 0.05]),
+        (120, [0.4, 0.4, 0.1, 0.1]),
+        (35, [0.6, 0.3, 0.05, 0.05]),
+        (200, [0.25, 0.25, 0.25, 0.25]),
+        (90, [0.7, 0.1, 0.1, 0.1]),
+    ];
+    for seed in 1..=8u64 {
+        for (n, w) in &shapes {
+            let rows = generated(seed, *n, w);
+            for min in [11, 5] {
+                check(&rows, &opts(min, &["site", "team"]));
+            }
+        }
+    }
+}
+
+#[test]
+fn suppressed_counts_hide_their_statistics() {
+    // 30 started, 4 without an outcome: "without outcome" is hidden, so one of "with outcome" /
+    // "started" is hidden too; with "started" protected, the completers line goes.
+    let rows: Vec<_> = (0..30)
+        .map(|i| person("A", 80.0 + i as f64, (i >= 4).then_some(78.0 + i as f64)))
+        .collect();
+    let r = summarize(&rows, &opts(11, &[]));
+    let s = r.program.stats.unwrap();
+    assert!(s.enrolment.without_outcome.is_suppressed());
+    assert!(s.enrolment.with_outcome.is_suppressed());
+    assert_eq!(s.enrolment.started, Shown::Value(30));
+    assert!(s.enrolment.retention_percent.is_suppressed());
+    assert!(s.weight_change.completers.percent.mean.is_suppressed());
+    assert!(s.weight_change.bocf.percent.mean.value().is_some());
+}
+
+/// Marks every count in [1, min − 1] of a serialised report as suppressed, and nothing else
+/// (primary suppression only), to show the checker is able to fail.
+fn primary_only(v: &mut Value, min: u64) {
+    match v {
+        Value::Object(m) => {
+            if m.len() == 1
+                && let Some(x) = m.get("value").and_then(Value::as_u64)
+                && x >= 1
+                && x < min
+            {
+                m.clear();
+                m.insert("suppressed".into(), Value::Bool(true));
+                return;
+            }
+            m.values_mut().for_each(|c| primary_only(c, min));
+        }
+        Value::Array(a) => a.iter_mut().for_each(|c| primary_only(c, min)),
+        _ => {}
+    }
+}
+
+#[test]
+fn checker_rejects_primary_suppression_alone() {
+    // Same structure, but only the small cells hidden: the 3 withdrawn of site A are
+    // 40 − 37 in the program's enrolment; the checker must find that.
+    let mut rows = Vec::new();
+    for (site, n) in [("A", 20), ("B", 20)] {
+        for i in 0..n {
+            let mut p = person(site, 80.0 + i as f64, Some(77.0 + i as f64));
+            p.withdrawn = site == "A" && i < 3;
+            rows.push(p);
+        }
+    }
+    let o = opts(11, &["site"]);
+    let truth = serde_json::to_value(build(&rows, &o, false)).unwrap();
+    let mut leaky = truth.clone();
+    primary_only(&mut leaky, 11);
+    let caught = std::panic::catch_unwind(|| assert_no_recovery(&leaky, &truth));
+    assert!(
+        caught.is_err(),
+        "the checker must reject primary-only suppression"
+    );
+    // And the real report passes.
+    check(&rows, &o);
+}
