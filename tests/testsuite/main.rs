@@ -2,3 +2,5 @@
 //! `cohortpress` binary on fixture programs (see `harness.rs`).
 
 mod harness;
+mod check;
+mod external;

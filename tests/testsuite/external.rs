@@ -1,0 +1,600 @@
+//! External modules through the library API: the example module, fake modules that misbehave in
+//! every way the runner must contain, and the golden test that pins the wire format.
+//!
+//! The fake modules live in `tests/fixtures/fake-plugins/`; `fake.py ID MODE [PARTICIPANT]`
+//! misbehaves as MODE says, only for PARTICIPANT when one is given, so each test can show that a
+//! failure stays with that module and that participant.
+
+use chrono::NaiveDate;
+use cohortpress::diag::{Diagnostic, Severity};
+use cohortpress::modules::{ModuleFailure, ModuleResults, ModuleSet, build_module_set};
+use cohortpress::program::{Program, ProgramDef};
+use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::{
+    ActivityEntry, IntakeDay, LabResult, LabTest, ParticipantData, Period, Profile, ProgramInfo,
+    SessionRecord, Sex, Targets, WeighIn,
+};
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use crate::harness::{fixture, repo_root};
+
+/// The example module, as a command relative to the fixture program folder.
+const EXAMPLE: &str = "../../../plugins/example-external/step_summary.py";
+/// The fake module, likewise.
+const FAKE: &str = "../fake-plugins/fake.py";
+
+fn day(m: u32, d: u32) -> NaiveDate {
+    NaiveDate::from_ymd_opt(2027, m, d).unwrap()
+}
+
+/// A program in the `external-program` fixture folder whose `modules:` section is `modules`.
+/// Entry i is said to be on line 20 + i.
+fn program(modules: &str) -> Program {
+    program_in(&fixture("external-program"), modules)
+}
+
+fn program_in(root: &Path, modules: &str) -> Program {
+    let text = format!(
+        "format_version: 1\nprogram: {{id: ext-fixture, title: Fixture, start: 2027-03-01, \
+         end: 2027-05-31}}\nmodules:\n{modules}"
+    );
+    let def: ProgramDef = serde_yaml::from_str(&text).expect("test program parses");
+    let info = ProgramInfo {
+        id: def.program.id.clone(),
+        title: def.program.title.clone(),
+        start: def.program.start,
+        end: def.program.end,
+        units: def.units,
+        targets: def.targets.apply(&Targets::default()),
+    };
+    let module_lines = (0..def.modules.len()).map(|i| (i, 20 + i as u64)).collect();
+    Program {
+        root: root.to_path_buf(),
+        def,
+        info,
+        module_lines,
+    }
+}
+
+/// One fake module entry.
+fn fake(id: &str, mode: &str, only_for: Option<&str>, timeout: f64) -> String {
+    let who = only_for.map(|p| format!(", {p}")).unwrap_or_default();
+    format!(
+        "  - id: {id}\n    command: [{FAKE}, {id}, {mode}{who}]\n    timeout_seconds: {timeout}\n"
+    )
+}
+
+fn example_entry(with: &str) -> String {
+    format!("  - id: steps\n    command: [{EXAMPLE}]\n{with}")
+}
+
+fn participant(id: &str, steps: &[(NaiveDate, f64)]) -> ParticipantData {
+    ParticipantData {
+        profile: Profile {
+            id: id.into(),
+            name: Some("Ines Varga-Holt".into()),
+            sex: Sex::Female,
+            birth_date: Some(NaiveDate::from_ymd_opt(1981, 6, 12).unwrap()),
+            age_years: 45.0,
+            height: Length::from_cm(164.0),
+            enrolled: day(3, 1),
+            withdrew: None,
+            groups: BTreeMap::from([("site".to_string(), "East Yard".to_string())]),
+            body_fat_percent: None,
+            targets: Targets::default(),
+            flags: vec![],
+        },
+        weights: vec![
+            WeighIn {
+                date: day(3, 1),
+                time: None,
+                weight: Mass::from_kg(84.2),
+                source: None,
+            },
+            WeighIn {
+                date: day(3, 8),
+                time: Some("07:15".into()),
+                weight: Mass::from_kg(83.6),
+                source: Some("home-scale".into()),
+            },
+        ],
+        intake: vec![],
+        activity: steps
+            .iter()
+            .map(|&(date, s)| ActivityEntry {
+                date,
+                activity: "walking_3mph".into(),
+                minutes: 30.0,
+                met: 3.5,
+                met_source: "Compendium 2011 code 17190".into(),
+                steps: Some(s),
+            })
+            .collect(),
+        sessions: vec![],
+        labs: vec![],
+    }
+}
+
+fn march() -> Period {
+    Period {
+        from: day(3, 1),
+        to: day(3, 31),
+    }
+}
+
+fn run(set: &ModuleSet, program: &Program, p: &ParticipantData) -> ModuleResults {
+    set.run(&program.info, march(), day(3, 31), p)
+}
+
+fn build(p: &Program) -> (ModuleSet, Vec<Diagnostic>) {
+    match build_module_set(p) {
+        Ok(x) => x,
+        Err(d) => panic!("module set refused: {}", render(&d)),
+    }
+}
+
+fn build_err(p: &Program) -> Vec<Diagnostic> {
+    match build_module_set(p) {
+        Ok((set, _)) => panic!("module set accepted: {:?}", set.ids()),
+        Err(d) => d
+            .into_iter()
+            .filter(|d| d.severity == Severity::Error)
+            .collect(),
+    }
+}
+
+fn render(d: &[Diagnostic]) -> String {
+    d.iter()
+        .map(|d| d.to_string())
+        .collect::<Vec<_>>()
+        .join("\n")
+}
+
+/// Steps of the example: five logged days in March (one day logged in two rows), one day in
+/// February and one in April that must not count.
+fn example_steps() -> Vec<(NaiveDate, f64)> {
+    vec![
+        (NaiveDate::from_ymd_opt(2027, 2, 27).unwrap(), 12000.0),
+        (day(3, 1), 6200.0),
+        (day(3, 2), 9100.0),
+        (day(3, 3), 4800.0),
+        (day(3, 9), 8300.0),
+        (day(3, 9), 500.0),
+        (day(3, 10), 7900.0),
+        (day(4, 1), 15000.0),
+    ]
+}
+
+#[test]
+fn the_example_module_summarises_steps() {
+    let p = program(&example_entry(""));
+    let (set, warnings) = build(&p);
+    assert!(warnings.is_empty(), "{}", render(&warnings));
+    assert_eq!(set.ids(), ["steps"]);
+    assert_eq!(
+        set.settings("steps").unwrap(),
+        &serde_json::json!({"step_goal": 7000})
+    );
+
+    let r = run(&set, &p, &participant("XP-01", &example_steps()));
+    assert!(r.failures.is_empty(), "{:?}", r.failures);
+    let out = r.output("steps").unwrap();
+    // Daily totals 6200, 9100, 4800, 8800 (8300 + 500), 7900: sum 36800 over 5 days.
+    assert_eq!(out.scalar("mean_daily_steps"), Some(7360.0));
+    assert_eq!(out.scalar("step_days"), Some(5.0));
+    // 9100, 8800 and 7900 reach 7000: 3 of 5 days.
+    assert_eq!(out.scalar("days_at_goal_percent"), Some(60.0));
+    let weekly = out.series("weekly_mean_steps").unwrap();
+    assert_eq!(weekly.step, "weekly");
+    let points: Vec<(NaiveDate, f64)> = weekly.points.iter().map(|p| (p.date, p.value)).collect();
+    // 2027-03-01 is a Monday: (6200 + 9100 + 4800) / 3 and (8800 + 7900) / 2.
+    assert_eq!(points, [(day(3, 1), 6700.0), (day(3, 8), 8350.0)]);
+    assert!(out.flags.is_empty());
+}
+
+#[test]
+fn the_example_module_takes_its_setting_and_reports_no_data_plainly() {
+    let p = program(&example_entry("    with: {step_goal: 8000}\n"));
+    let (set, _) = build(&p);
+    let r = run(&set, &p, &participant("XP-01", &example_steps()));
+    // Only 9100 and 8800 reach 8000: 2 of 5 days.
+    assert_eq!(
+        r.output("steps").unwrap().scalar("days_at_goal_percent"),
+        Some(40.0)
+    );
+
+    let r = run(&set, &p, &participant("XP-02", &[]));
+    let out = r.output("steps").unwrap();
+    assert_eq!(out.scalar("mean_daily_steps"), None);
+    assert_eq!(out.scalar("step_days"), Some(0.0));
+    assert_eq!(out.flags.len(), 1);
+    assert_eq!(out.flags[0].code, "insufficient_data");
+}
+
+#[test]
+fn settings_of_an_external_module_are_checked_against_its_spec() {
+    let p = program(&example_entry(
+        "    with: {step_goal: 500, goal_colour: green}\n",
+    ));
+    let errs = build_err(&p);
+    assert_eq!(errs.len(), 2, "{}", render(&errs));
+    assert!(
+        errs.iter()
+            .all(|e| e.field.as_deref() == Some("modules[0].with"))
+    );
+    assert!(errs.iter().all(|e| e.line == Some(20)));
+    assert!(
+        errs[0]
+            .message
+            .contains("unknown setting `goal_colour` for module `steps`")
+    );
+    assert!(
+        errs[1]
+            .message
+            .contains("500 is outside 1000..=30000 steps/d"),
+        "{}",
+        errs[1]
+    );
+}
+
+/// Builds [fake `bad` misbehaving as `mode` for XP-02 only, the example], runs both
+/// participants, and checks the failure stays with `bad` and XP-02. Returns XP-02's message.
+fn contained(mode: &str, timeout: f64) -> String {
+    let p = program(&format!(
+        "{}{}",
+        fake("bad", mode, Some("XP-02"), timeout),
+        example_entry("")
+    ));
+    let (set, _) = build(&p);
+    let steps = example_steps();
+
+    let one = run(&set, &p, &participant("XP-01", &steps));
+    assert!(
+        one.failures.is_empty(),
+        "{mode}: XP-01 failed: {:?}",
+        one.failures
+    );
+    assert_eq!(one.output("bad").unwrap().scalar("weigh_ins"), Some(2.0));
+
+    let two = run(&set, &p, &participant("XP-02", &steps));
+    assert_eq!(two.failures.len(), 1, "{mode}: {:?}", two.failures);
+    let ModuleFailure { module, message } = &two.failures[0];
+    assert_eq!(module, "bad");
+    assert!(two.output("bad").is_none());
+    // The module after the failing one still ran for the same participant.
+    assert_eq!(
+        two.output("steps").unwrap().scalar("mean_daily_steps"),
+        Some(7360.0)
+    );
+    message.clone()
+}
+
+#[test]
+fn a_non_zero_exit_is_contained_and_shows_the_last_error_line() {
+    assert_eq!(
+        contained("exit", 20.0),
+        "external module: exited with status 3; its last error line: `fake: the disk is on fire`"
+    );
+}
+
+#[test]
+fn output_that_is_not_json_is_contained() {
+    let m = contained("garbage", 20.0);
+    assert!(
+        m.starts_with("external module: line 2 of its output is not a protocol message"),
+        "{m}"
+    );
+    assert!(m.ends_with("found: `this is not json`"), "{m}");
+}
+
+#[test]
+fn an_error_answer_is_contained() {
+    assert_eq!(
+        contained("error", 20.0),
+        "external module: reported an error: no data for this one"
+    );
+}
+
+#[test]
+fn a_wrong_message_type_is_contained() {
+    assert_eq!(
+        contained("wrongtype", 20.0),
+        "external module: wrong message type: expected `result` or `error`, found `hello`"
+    );
+}
+
+#[test]
+fn a_wrong_major_version_while_computing_is_contained() {
+    let m = contained("proto2compute", 20.0);
+    assert!(
+        m.contains("speaks protocol 2.0 but this cohortpress speaks 1.0"),
+        "{m}"
+    );
+}
+
+#[test]
+fn runaway_output_is_cut_off_and_contained() {
+    let m = contained("big", 20.0);
+    assert_eq!(
+        m,
+        "external module: its output exceeded the limit of 16 MiB and it was stopped"
+    );
+}
+
+#[test]
+fn a_module_past_its_timeout_is_stopped_and_contained() {
+    let m = contained("sleep", 1.0);
+    assert!(
+        m.starts_with("external module: did not finish within 1 s and was stopped"),
+        "{m}"
+    );
+    assert!(
+        m.contains("raise `timeout_seconds` for module `bad`"),
+        "{m}"
+    );
+}
+
+#[test]
+fn writing_to_stderr_does_not_fail_a_module() {
+    let p = program(&fake("chatty", "stderr", None, 20.0));
+    let (set, _) = build(&p);
+    let r = run(&set, &p, &participant("XP-01", &[]));
+    assert!(r.failures.is_empty(), "{:?}", r.failures);
+    assert_eq!(r.output("chatty").unwrap().scalar("weigh_ins"), Some(2.0));
+}
+
+#[test]
+fn a_module_gets_a_minimal_environment_no_name_and_only_what_it_requires() {
+    // `steps` runs first but `peek` does not require it, so `peek` must not see its output.
+    let p = program(&format!(
+        "{}{}",
+        example_entry(""),
+        fake("peek", "env", None, 20.0)
+    ));
+    let (set, _) = build(&p);
+    let r = run(&set, &p, &participant("XP-01", &example_steps()));
+    let out = r.output("peek").unwrap();
+    assert_eq!(out.scalar("has_name"), Some(0.0));
+    assert_eq!(out.scalar("earlier_modules"), Some(0.0));
+    // Of the host's environment only PATH, HOME and LANG get through. The module's own
+    // launcher may add variables of its own (Python sets LC_CTYPE when it coerces a C locale,
+    // PEP 538; a version manager's `python3` shim sets its own), so the test names variables
+    // that the host has and must not pass on: cargo sets these for every test run.
+    let names = out.text("env_names").unwrap();
+    let names: Vec<&str> = names.split(',').collect();
+    assert!(std::env::var_os("CARGO_MANIFEST_DIR").is_some());
+    for leaked in ["CARGO_MANIFEST_DIR", "CARGO_PKG_NAME", "CARGO"] {
+        assert!(
+            !names.contains(&leaked),
+            "{leaked} reached the module: {names:?}"
+        );
+    }
+    assert!(names.contains(&"PATH"), "{names:?}");
+}
+
+#[test]
+fn a_wrong_major_version_at_the_handshake_is_refused() {
+    let errs = build_err(&program(&fake("newer", "proto2", None, 20.0)));
+    assert_eq!(errs.len(), 1, "{}", render(&errs));
+    assert_eq!(
+        errs[0].message,
+        "external module `newer` failed its handshake: speaks protocol 2.0 but this cohortpress \
+         speaks 1.0; a different major version cannot be used: use a version of the module \
+         written for protocol 1.x"
+    );
+    assert_eq!(errs[0].line, Some(20));
+}
+
+#[test]
+fn a_newer_minor_version_only_warns() {
+    let p = program(&fake("later", "proto19", None, 20.0));
+    let (set, warnings) = build(&p);
+    assert_eq!(warnings.len(), 1, "{}", render(&warnings));
+    assert_eq!(warnings[0].severity, Severity::Warning);
+    assert!(
+        warnings[0]
+            .message
+            .contains("speaks protocol 1.9, this cohortpress 1.0")
+    );
+    let r = run(&set, &p, &participant("XP-01", &[]));
+    assert!(r.failures.is_empty(), "{:?}", r.failures);
+    assert_eq!(r.output("later").unwrap().scalar("weigh_ins"), Some(2.0));
+}
+
+#[test]
+fn a_missing_module_is_an_error_with_the_fix_unless_optional() {
+    let entry = "  - id: ghost\n    command: [plugins/ghost.py]\n";
+    let errs = build_err(&program(&format!("{}{entry}", example_entry(""))));
+    assert_eq!(errs.len(), 1, "{}", render(&errs));
+    assert_eq!(
+        errs[0].message,
+        "external module `ghost`: program `plugins/ghost.py` was not found"
+    );
+    assert_eq!(errs[0].line, Some(21));
+    assert!(
+        errs[0]
+            .found
+            .as_deref()
+            .unwrap()
+            .ends_with("external-program/plugins/ghost.py")
+    );
+    assert!(
+        errs[0]
+            .hint
+            .as_deref()
+            .unwrap()
+            .contains("set `optional: true` on module `ghost`")
+    );
+
+    let bare = "  - id: ghost\n    command: [cohortpress-no-such-module-xyz]\n";
+    let errs = build_err(&program(bare));
+    assert_eq!(
+        errs[0].found.as_deref(),
+        Some("no `cohortpress-no-such-module-xyz` on PATH")
+    );
+
+    let optional = format!("{}{entry}    optional: true\n", example_entry(""));
+    let p = program(&optional);
+    let (set, warnings) = build(&p);
+    assert_eq!(set.ids(), ["steps"]);
+    assert_eq!(warnings.len(), 1);
+    assert!(
+        warnings[0].message.contains("`ghost` is skipped"),
+        "{}",
+        warnings[0]
+    );
+    let r = run(&set, &p, &participant("XP-01", &example_steps()));
+    assert!(r.failures.is_empty());
+}
+
+#[test]
+fn a_module_answering_with_another_id_is_refused() {
+    let p = program(&format!(
+        "  - id: counts\n    command: [{FAKE}, tallies, ok]\n"
+    ));
+    let errs = build_err(&p);
+    assert_eq!(
+        errs[0].message,
+        "external module `counts` answers with the id `tallies`"
+    );
+}
+
+#[test]
+fn a_module_that_fails_its_handshake_is_refused_with_its_reason() {
+    // A script that is not executable cannot be started; the message says what to do.
+    let tmp = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    std::fs::write(tmp.path().join("plain.py"), "print('hi')\n").unwrap();
+    let errs = build_err(&program_in(
+        tmp.path(),
+        "  - id: plain\n    command: [./plain.py]\n",
+    ));
+    assert!(
+        errs[0]
+            .message
+            .contains("permission denied; make it executable"),
+        "{}",
+        errs[0]
+    );
+}
+
+#[test]
+fn the_listing_shows_a_programs_external_modules() {
+    let p = program(&example_entry(""));
+    let text = cohortpress::modules::describe_modules(Some(&p));
+    assert!(
+        text.contains("External modules of program `ext-fixture`"),
+        "{text}"
+    );
+    assert!(
+        text.contains(&format!("\nsteps 0.1.0 (command: {EXAMPLE})\n")),
+        "{text}"
+    );
+    assert!(
+        text.contains("    step_goal: integer, default 7000 steps/d, from 1000 to 30000\n"),
+        "{text}"
+    );
+    assert!(
+        text.contains("    weekly_mean_steps (series, steps/d)\n"),
+        "{text}"
+    );
+}
+
+// ---------------------------------------------------------------------------------------------
+// Golden test of the wire format.
+//
+// CAUTION: within protocol major version 1 only new optional fields may be added. If this test
+// fails because a field was renamed or removed, that change breaks every external module in the
+// field: it needs protocol 2.0 instead. If it fails because an optional field was added, review
+// the new request by eye and rewrite the pinned files with COHORTPRESS_BLESS=1.
+// ---------------------------------------------------------------------------------------------
+
+/// A small participant touching every part of the data model.
+fn golden_participant() -> ParticipantData {
+    let mut p = participant("XP-01", &[(day(3, 1), 6200.0), (day(3, 2), 9100.0)]);
+    p.intake = vec![IntakeDay {
+        date: day(3, 1),
+        kcal: 1850.0,
+        carbs_g: Some(210.0),
+        fat_g: Some(62.5),
+        protein_g: Some(95.0),
+        free_sugars_g: None,
+    }];
+    p.sessions = vec![SessionRecord {
+        date: day(3, 4),
+        session: "1".into(),
+        attended: true,
+    }];
+    p.labs = vec![LabResult {
+        date: day(3, 2),
+        test: LabTest::FastingGlucose,
+        value: 5.5,
+        unit_as_written: "mg/dL".into(),
+        value_as_written: 99.088,
+    }];
+    p
+}
+
+/// Parses JSON lines into an array, with the host version replaced so releases do not break it.
+fn messages(bytes: &[u8]) -> serde_json::Value {
+    let text = std::str::from_utf8(bytes).expect("UTF-8");
+    assert!(text.ends_with('\n'), "each message ends with a newline");
+    let mut v: Vec<serde_json::Value> = text
+        .lines()
+        .map(|l| serde_json::from_str(l).expect("one JSON object per line"))
+        .collect();
+    for m in &mut v {
+        if m["type"] == "hello" && m.get("host").is_some() {
+            m["host"] = serde_json::json!("cohortpress [VERSION]");
+        }
+    }
+    serde_json::Value::Array(v)
+}
+
+fn golden(name: &str, actual: &serde_json::Value) {
+    let path = repo_root()
+        .join("tests/fixtures/protocol-golden")
+        .join(name);
+    let pretty = serde_json::to_string_pretty(actual).unwrap() + "\n";
+    if std::env::var_os("COHORTPRESS_BLESS").is_some() {
+        std::fs::create_dir_all(path.parent().unwrap()).unwrap();
+        std::fs::write(&path, &pretty).unwrap();
+    }
+    let pinned = std::fs::read_to_string(&path).unwrap_or_else(|e| {
+        panic!(
+            "{}: {e} (write it with COHORTPRESS_BLESS=1)",
+            path.display()
+        )
+    });
+    let pinned: serde_json::Value = serde_json::from_str(&pinned).unwrap();
+    assert_eq!(
+        &pinned, actual,
+        "{name} differs from the pinned wire format; actual:\n{pretty}"
+    );
+}
+
+#[test]
+fn the_wire_format_is_pinned() {
+    let tmp = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let req: PathBuf = tmp.path().join("request");
+    let resp: PathBuf = tmp.path().join("response");
+    let entry = format!(
+        "  - id: steps\n    command: [../fake-plugins/capture.py, {}, {}, {EXAMPLE}]\n",
+        req.display(),
+        resp.display()
+    );
+    let p = program(&entry);
+    let (set, _) = build(&p);
+    let r = run(&set, &p, &golden_participant());
+    assert!(r.failures.is_empty(), "{:?}", r.failures);
+
+    let request = messages(&std::fs::read(&req).unwrap());
+    let response = messages(&std::fs::read(&resp).unwrap());
+    // The display name never leaves the host.
+    assert_eq!(
+        request[1]["participant"]["profile"]["name"],
+        serde_json::Value::Null
+    );
+    golden("request.json", &request);
+    golden("response.json", &response);
+}
