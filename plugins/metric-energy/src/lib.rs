@@ -301,3 +301,27 @@ impl MetricModule for EnergyModule {
         compute::run(ctx, data)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn spec_names_the_module_its_dependency_and_defaults() {
+        let spec = EnergyModule.spec();
+        assert_eq!(spec.id, "energy");
+        assert_eq!(spec.requires, vec!["trend".to_string()]);
+        let s = spec.resolve_settings(&serde_json::Value::Null).unwrap();
+        assert_eq!(s["equation"], "mifflin_st_jeor");
+        assert_eq!(s["base_pal"], 1.4);
+        assert_eq!(s["window_days"], 28);
+        assert_eq!(s["target_loss_kg_per_week"], 0.5);
+        assert_eq!(s["max_safe_loss_kg_per_week"], 1.0);
+        assert_eq!(s["intake_floor_female"], 1200.0);
+        assert_eq!(s["intake_floor_male"], 1500.0);
+        assert_eq!(s["drift_threshold_kcal_per_day"], 150.0);
+        assert_eq!(s["walking_met"], 3.5);
+        let bad = serde_json::json!({"equation": "guess", "base_pal": 4.0});
+        assert_eq!(spec.resolve_settings(&bad).unwrap_err().len(), 2);
+    }
+}
