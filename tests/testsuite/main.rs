@@ -4,3 +4,4 @@
 mod harness;
 mod check;
 mod external;
+mod external;
