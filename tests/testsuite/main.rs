@@ -2,6 +2,4 @@
 //! `cohortpress` binary on fixture programs (see `harness.rs`).
 
 mod harness;
-mod check;
-mod external;
 mod external;
