@@ -1,0 +1,184 @@
+//! The demo-program generator: a complete, fictional program folder to try the tool on.
+//!
+//! [`generate`] writes `program.yaml` and `participants/*/` for "Steady Ground 2026", a six-month
+//! workplace program of the invented employer Brackenridge Ceramics (sites Kiln Row, Harbour
+//! Depot and North Office). Each participant's weight is simulated day by day from an energy
+//! balance (see [`sim`]), and the records are derived from it the way real records differ from
+//! the truth: irregular noisy weigh-ins, some in lb, under-reported and thinning food logs,
+//! activity, sessions and labs. With [`DemoOptions::with_defects`] a fixed set of realistic input
+//! errors is planted once each (listed in `sample-program/README.md`), so `cohortpress check`
+//! has something to report.
+//!
+//! The output depends only on the options: the random numbers come from a hand-written
+//! generator ([`rng`]) and every participant draws from its own stream, so the bundled
+//! `sample-program/` can be compared with the generator byte for byte.
+
+pub mod people;
+pub mod rng;
+pub mod sim;
+pub mod write;
+
+#[cfg(test)]
+mod tests;
+
+use rayon::prelude::*;
+use sim::{Plan, Scenario};
+use std::fs;
+use std::io;
+use std::path::Path;
+
+/// What to generate.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct DemoOptions {
+    /// Number of participants with a profile (ids `SG-001`, …).
+    pub participants: usize,
+    /// Seed of the random numbers; the same seed gives the same bytes.
+    pub seed: u64,
+    /// Plant the realistic input errors (and the folder without a profile).
+    pub with_defects: bool,
+}
+
+impl Default for DemoOptions {
+    /// The bundled sample: 48 participants, seed 2026, defects planted.
+    fn default() -> Self {
+        DemoOptions {
+            participants: 48,
+            seed: 2026,
+            with_defects: true,
+        }
+    }
+}
+
+/// What [`generate`] wrote.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct DemoSummary {
+    /// Participants with a profile (the folder planted without one is not counted).
+    pub participants: usize,
+    /// Files written, program.yaml included.
+    pub files: usize,
+    /// Bytes written.
+    pub bytes: u64,
+}
+
+/// Writes a demo program into `out`.
+///
+/// `out` may be missing, empty, or a previous demo program (its program.yaml starts with
+/// [`write::MARKER`]); in the last case its `participants/` folder is replaced and every other
+/// file (a README, templates, reports) is left alone. Any other non-empty folder is refused with
+/// [`io::ErrorKind::AlreadyExists`], so the generator can never overwrite a real program.
+///
+/// # Errors
+/// `InvalidInput` for zero participants, `AlreadyExists` as above, and any I/O error.
+pub fn generate(out: &Path, opts: &DemoOptions) -> io::Result<DemoSummary> {
+    if opts.participants == 0 {
+        return Err(io::Error::new(
+            io::ErrorKind::InvalidInput,
+            "a demo program needs at least one participant",
+        ));
+    }
+    prepare_folder(out)?;
+    let scenario = Scenario::steady_ground();
+    let plans = sim::plan_cohort(opts.participants, opts.seed, opts.with_defects);
+
+    // program.yaml first: if a later write fails, the folder is still recognised as ours and a
+    // second attempt may overwrite it.
+    let mut buf = Vec::with_capacity(4096);
+    write::program_yaml(&mut buf, &scenario, opts);
+    fs::write(out.join("program.yaml"), &buf)?;
+    let mut files = 1;
+    let mut bytes = buf.len() as u64;
+
+    let participants = out.join("participants");
+    fs::create_dir_all(&participants)?;
+    let (f, b) = plans
+        .par_iter()
+        .map_init(
+            || Vec::with_capacity(64 * 1024),
+            |buf, plan| write_participant(&participants, plan, &scenario, opts.seed, buf),
+        )
+        .try_reduce(|| (0, 0), |a, b| Ok((a.0 + b.0, a.1 + b.1)))?;
+    files += f;
+    bytes += b;
+
+    if opts.with_defects {
+        // A folder someone started without ever returning a profile.
+        let dir = participants.join(sim::participant_id(opts.participants));
+        fs::create_dir(&dir)?;
+        buf.clear();
+        write::orphan_weights_csv(&mut buf, &scenario);
+        fs::write(dir.join("weights.csv"), &buf)?;
+        files += 1;
+        bytes += buf.len() as u64;
+    }
+    Ok(DemoSummary {
+        participants: opts.participants,
+        files,
+        bytes,
+    })
+}
+
+/// Makes sure `out` may be written (see [`generate`]) and clears a previous demo's participants.
+fn prepare_folder(out: &Path) -> io::Result<()> {
+    let mut entries = match fs::read_dir(out) {
+        Ok(entries) => entries,
+        Err(e) if e.kind() == io::ErrorKind::NotFound => return fs::create_dir_all(out),
+        Err(e) => return Err(e),
+    };
+    if entries.next().is_none() {
+        return Ok(());
+    }
+    let ours = fs::read_to_string(out.join("program.yaml"))
+        .map(|text| text.starts_with(write::MARKER))
+        .unwrap_or(false);
+    if !ours {
+        return Err(io::Error::new(
+            io::ErrorKind::AlreadyExists,
+            format!(
+                "refusing to write into `{}`: the folder is not empty and is not a demo program \
+                 written by `cohortpress demo-program` (no generated program.yaml); \
+                 hint: choose a new or empty folder",
+                out.display()
+            ),
+        ));
+    }
+    let old = out.join("participants");
+    if old.exists() {
+        fs::remove_dir_all(old)?;
+    }
+    Ok(())
+}
+
+/// Simulates one participant and writes its folder; returns (files, bytes).
+fn write_participant(
+    root: &Path,
+    plan: &Plan,
+    scenario: &Scenario,
+    seed: u64,
+    buf: &mut Vec<u8>,
+) -> io::Result<(usize, u64)> {
+    let p = sim::simulate(plan, scenario, seed);
+    let dir = root.join(&plan.id);
+    fs::create_dir(&dir)?;
+    type Writer = fn(&mut Vec<u8>, &sim::Simulated);
+    let files: [(&str, Writer, bool); 6] = [
+        ("profile.yaml", write::profile_yaml, true),
+        ("weights.csv", write::weights_csv, !p.weights.is_empty()),
+        ("intake.csv", write::intake_csv, !p.intake.is_empty()),
+        ("activity.csv", write::activity_csv, !p.activity.is_empty()),
+        ("sessions.csv", write::sessions_csv, !p.sessions.is_empty()),
+        ("labs.csv", write::labs_csv, !p.labs.is_empty()),
+    ];
+    let mut count = 0;
+    let mut bytes = 0;
+    for (name, writer, wanted) in files {
+        if !wanted {
+            continue;
+        }
+        buf.clear();
+        writer(buf, &p);
+        fs::write(dir.join(name), &buf[..])?;
+        count += 1;
+        bytes += buf.len() as u64;
+    }
+    Ok((count, bytes))
+}
