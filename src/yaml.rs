@@ -12,11 +12,14 @@ use serde::de::DeserializeOwned;
 ///
 /// On failure the diagnostic names the line and column, the key path (`program.start`) when
 /// serde_yaml knows it, what was expected and found, and a hint.
+// A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
+#[allow(clippy::result_large_err)]
 pub fn from_str<T: DeserializeOwned>(text: &str, file: &str) -> Result<T, Diagnostic> {
     serde_yaml::from_str(text).map_err(|e| to_diagnostic(&e, file))
 }
 
 /// Parses `text` into an untyped YAML value (for module settings).
+#[allow(clippy::result_large_err)]
 pub fn value_from_str(text: &str, file: &str) -> Result<serde_yaml::Value, Diagnostic> {
     from_str(text, file)
 }

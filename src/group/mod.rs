@@ -41,9 +41,9 @@ pub struct ParticipantSummary {
     pub enrolled: bool,
     /// Withdrew on or before the period end.
     pub withdrawn: bool,
-    /// Has a baseline weight. The ITT denominator is "started": `started` and a
-    /// `baseline_kg` present (a row claiming to have started without a baseline is not counted
-    /// as started).
+    /// Has a baseline weight. The ITT denominator is "started": `started` and a positive,
+    /// finite `baseline_kg` (a row claiming to have started without one is counted as not
+    /// started).
     pub started: bool,
     /// Baseline weight, kg.
     pub baseline_kg: Option<f64>,

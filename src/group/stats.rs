@@ -134,7 +134,8 @@ pub struct MedianCi {
 /// With the values sorted `x(1) ≤ … ≤ x(n)` and `B ~ Binomial(n, ½)`, take the largest `k ≥ 1`
 /// with `P(B ≤ k − 1) ≤ α/2`; the interval is `[x(k), x(n − k + 1)]` and its exact coverage is
 /// `1 − 2·P(B ≤ k − 1)` (at least `1 − α`). This is the sign-test interval for a quantile in
-/// Conover WJ, *Practical Nonparametric Statistics*, 3rd ed. 1999, §3.2 [M] (from memory).
+/// Conover WJ, *Practical Nonparametric Statistics*, 3rd ed. 1999, §3.2 (REFERENCE tag M:
+/// from memory).
 ///
 /// # Remarks
 /// Returns `None` when the sample is too small for any order-statistic interval to reach the

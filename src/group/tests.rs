@@ -662,3 +662,24 @@ fn checker_rejects_primary_suppression_alone() {
     // And the real report passes.
     check(&rows, &o);
 }
+
+#[test]
+fn many_sites_and_weeks_leak_no_small_cell() {
+    // 1500 participants over 20 sites of very uneven size (many small ones) and up to 40
+    // trajectory weeks: a larger linear system for the suppression and the checker.
+    let mut g = Lcg(7);
+    let rows: Vec<ParticipantSummary> = (0..1500)
+        .map(|_| {
+            let mut p = generated((g.next() * 1e9) as u64, 1, &[1.0, 1.0, 1.0, 1.0]).remove(0);
+            let site = format!("S{:02}", (g.next() * g.next() * 20.0) as u32);
+            p.groups.insert("site".into(), site);
+            p.weekly_change_percent = (0..(g.next() * 40.0) as u32)
+                .map(|w| (w, -0.1 * f64::from(w)))
+                .collect();
+            p
+        })
+        .collect();
+    let v = check(&rows, &opts(11, &["site", "team"]));
+    let sites = v["splits"][0]["sections"].as_array().unwrap();
+    assert!(sites.iter().any(|s| s["kind"] == "combined"));
+}

@@ -182,26 +182,26 @@ pub fn parse_profile(
             None
         }
     };
-    if let Some(h) = height {
-        if !(HEIGHT_CM_RANGE.0..=HEIGHT_CM_RANGE.1).contains(&h.cm()) {
-            diags.push(at(
-                "height",
-                ctx.error("implausible height")
-                    .expected(format!("{} to {} cm", HEIGHT_CM_RANGE.0, HEIGHT_CM_RANGE.1))
-                    .found(format!("{:.1} cm", h.cm()))
-                    .hint("check the number and its unit"),
-            ));
-        }
+    if let Some(h) = height
+        && !(HEIGHT_CM_RANGE.0..=HEIGHT_CM_RANGE.1).contains(&h.cm())
+    {
+        diags.push(at(
+            "height",
+            ctx.error("implausible height")
+                .expected(format!("{} to {} cm", HEIGHT_CM_RANGE.0, HEIGHT_CM_RANGE.1))
+                .found(format!("{:.1} cm", h.cm()))
+                .hint("check the number and its unit"),
+        ));
     }
-    if let Some(wd) = def.withdrew {
-        if wd < def.enrolled {
-            diags.push(at(
-                "withdrew",
-                ctx.error("the withdrawal date is before enrolment")
-                    .expected(format!("a date on or after {}", def.enrolled))
-                    .found(wd.to_string()),
-            ));
-        }
+    if let Some(wd) = def.withdrew
+        && wd < def.enrolled
+    {
+        diags.push(at(
+            "withdrew",
+            ctx.error("the withdrawal date is before enrolment")
+                .expected(format!("a date on or after {}", def.enrolled))
+                .found(wd.to_string()),
+        ));
     }
     let mut groups = BTreeMap::new();
     for (k, v) in &def.groups {

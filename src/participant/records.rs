@@ -6,7 +6,7 @@
 //! file whose shape cannot be trusted (missing column) is an error. Every list comes out sorted
 //! by date.
 
-use super::table::{Cells, CsvOptions, FileCtx, FileSpec, Table, read_table};
+use super::table::{Cells, CsvOptions, Dropped, FileCtx, FileSpec, Table, read_table};
 use crate::activities;
 use crate::diag::Diagnostic;
 use chrono::{NaiveDate, NaiveTime};
@@ -417,7 +417,7 @@ pub fn parse_intake(
                         .found(format!("`{v}`")),
                 ),
                 Ok(v) => *slot = v,
-                Err(()) => {}
+                Err(Dropped) => {}
             }
         }
         Some(RawIntake { kcal, macros })
@@ -567,7 +567,7 @@ pub fn parse_activity(
                 None
             }
             Ok(s) => s,
-            Err(()) => None,
+            Err(Dropped) => None,
         };
         Some((activity, minutes, met, met_source, steps))
     });

@@ -286,6 +286,10 @@ fn column_list(spec: &FileSpec) -> String {
     s
 }
 
+/// A bad value that was warned about and left out.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Dropped;
+
 /// Reads cells of one row, pushing a warning for each bad value.
 pub struct Cells<'a> {
     /// The table.
@@ -367,19 +371,20 @@ impl Cells<'_> {
         self.parse_number(col, &s, "the row is dropped", diags)
     }
 
-    /// An optional number: empty gives `Ok(None)`; a bad value is warned about and gives `Err`.
+    /// An optional number: empty gives `Ok(None)`; a bad value is warned about and gives
+    /// `Err(Dropped)`.
     pub fn optional_number(
         &self,
         col: &str,
         consequence: &str,
         diags: &mut Vec<Diagnostic>,
-    ) -> Result<Option<f64>, ()> {
+    ) -> Result<Option<f64>, Dropped> {
         match self.text(col) {
             None => Ok(None),
             Some(s) => self
                 .parse_number(col, s, consequence, diags)
                 .map(Some)
-                .ok_or(()),
+                .ok_or(Dropped),
         }
     }
 

@@ -128,14 +128,14 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
         ),
     ] {
         // Bounds are sanity limits (common practice), not clinical advice.
-        if let Some(v) = v {
-            if !v.is_finite() || v < lo || v > hi {
-                out.push(
-                    err(key, format!("target out of range: {v}"))
-                        .expected(format!("a number from {lo} to {hi}"))
-                        .found(v.to_string()),
-                );
-            }
+        if let Some(v) = v
+            && (!v.is_finite() || v < lo || v > hi)
+        {
+            out.push(
+                err(key, format!("target out of range: {v}"))
+                    .expected(format!("a number from {lo} to {hi}"))
+                    .found(v.to_string()),
+            );
         }
     }
     let mut seen = BTreeSet::new();
@@ -248,6 +248,8 @@ pub fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
 
 /// Decodes UTF-8 (a leading byte-order mark is skipped); on failure the diagnostic names the
 /// line and the byte column of the first bad byte.
+// A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
+#[allow(clippy::result_large_err)]
 pub fn decode_utf8<'a>(bytes: &'a [u8], file: &str) -> Result<&'a str, Diagnostic> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     std::str::from_utf8(bytes).map_err(|e| {

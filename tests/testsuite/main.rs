@@ -2,4 +2,4 @@
 //! `cohortpress` binary on fixture programs (see `harness.rs`).
 
 mod harness;
-mod external;
+mod check;

@@ -1,0 +1,130 @@
+//! `cohortpress check` on a program whose participant folders each hold one kind of input
+//! defect (`tests/fixtures/broken-program`).
+
+use crate::harness::{ProgramTest, tree_hashes};
+
+const AS_OF: &str = "2026-12-01";
+
+/// (file:line[:column] as printed, words of the message) for each defect folder.
+const DEFECTS: &[(&str, &str)] = &[
+    ("participants/bad id:", "not a usable participant id"),
+    (
+        "participants/bad-height-unit/profile.yaml:4:",
+        "the height has no unit",
+    ),
+    (
+        "participants/before-enrolment/sessions.csv:2:1:",
+        "before enrolment",
+    ),
+    (
+        "participants/decimal-comma/weights.csv:3:2:",
+        "decimal comma",
+    ),
+    (
+        "participants/duplicate-rows/intake.csv:4:",
+        "duplicate of line 3",
+    ),
+    ("participants/future-date/weights.csv:3:1:", "in the future"),
+    (
+        "participants/impossible-weight/weights.csv:3:2:",
+        "implausible weight",
+    ),
+    (
+        "participants/lb-in-kg-row/weights.csv:4:2:",
+        "looks like pounds",
+    ),
+    (
+        "participants/missing-column/weights.csv:1:",
+        "missing required column `unit`",
+    ),
+    (
+        "participants/missing-profile/profile.yaml:",
+        "has no profile.yaml",
+    ),
+    (
+        "participants/non-utf8/activity.csv:3:15:",
+        "not valid UTF-8",
+    ),
+    (
+        "participants/unknown-activity/activity.csv:3:2:",
+        "unknown activity code",
+    ),
+    (
+        "participants/wrong-field-count/weights.csv:3:",
+        "row has 4 fields",
+    ),
+];
+
+fn assert_report(text: &str) {
+    for (location, words) in DEFECTS {
+        assert!(
+            text.lines()
+                .any(|l| l.contains(location) && l.contains(words)),
+            "no line with `{location}` and `{words}` in:\n{text}"
+        );
+    }
+    for clean in ["bom-crlf", "clean-a", "clean-b"] {
+        assert!(
+            text.contains(&format!("\n{clean}: usable\n")),
+            "{clean} not usable:\n{text}"
+        );
+    }
+    for unusable in [
+        "bad-height-unit",
+        "missing-column",
+        "missing-profile",
+        "non-utf8",
+    ] {
+        assert!(
+            text.contains(&format!("\n{unusable}: not usable")),
+            "{unusable}:\n{text}"
+        );
+    }
+    assert!(
+        text.contains("checked 15 participants: 11 usable, 4 with errors; 5 errors, 8 warnings"),
+        "{text}"
+    );
+}
+
+#[test]
+fn check_names_every_defect_through_the_binary() {
+    let t = ProgramTest::fixture("broken-program");
+    let before = tree_hashes(&t.dir);
+    let out = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(before, tree_hashes(&t.dir), "check modified its inputs");
+    assert_eq!(
+        out.code, 4,
+        "exit code (PARTICIPANT_ERRORS)\nstdout:\n{}\nstderr:\n{}",
+        out.stdout, out.stderr
+    );
+    assert_report(&out.stdout);
+    insta::assert_snapshot!("broken_program_check", t.redact(&out.stdout));
+}
+
+#[test]
+fn check_names_every_defect_through_the_library() {
+    let t = ProgramTest::fixture("broken-program");
+    let before = tree_hashes(&t.dir);
+    let mut out = Vec::new();
+    let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    let code = cohortpress::check::run_check(&t.dir, as_of, &mut out);
+    assert_eq!(before, tree_hashes(&t.dir), "check modified its inputs");
+    assert_eq!(code, cohortpress::exit_code::PARTICIPANT_ERRORS);
+    let text = String::from_utf8(out).unwrap();
+    assert_report(&text);
+    // The same report as the binary prints (one snapshot for both).
+    insta::assert_snapshot!("broken_program_check", t.redact(&text));
+
+    // The clean participants' data arrive sorted and converted.
+    let report = cohortpress::check::check_program(&t.dir, as_of);
+    let b = report
+        .participants
+        .iter()
+        .find(|p| p.id == "clean-b")
+        .unwrap();
+    let data = b.data.as_ref().unwrap();
+    // 5 ft 11 in = 71 in × 2.54 = 180.34 cm; 231.5 lb × 0.45359237 = 105.0066 kg (exact factors).
+    assert!((data.profile.height.cm() - 180.34).abs() < 1e-9);
+    assert!((data.weights[0].weight.kg() - 105.006_633_655).abs() < 1e-6);
+    assert_eq!(b.files.len(), 2);
+}
