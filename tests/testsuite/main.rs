@@ -3,4 +3,4 @@
 
 mod harness;
 mod check;
-mod check;
+mod external;
