@@ -692,3 +692,28 @@ fn a_larger_cohort_scales() {
     );
     assert!(s.files > 1000 * 4 && s.bytes > 1000 * 5_000, "{s:?}");
 }
+
+#[test]
+fn check_reports_the_planted_defects_and_nothing_else() {
+    // The sample is clean apart from the planted defects: the checker finds one problem per
+    // defect, in the file the README names, and every participant but SG-049 stays usable.
+    let report =
+        crate::check::check_program(&sample_dir(), NaiveDate::from_ymd_opt(2026, 12, 2).unwrap());
+    assert!(!report.program_invalid());
+    assert_eq!(report.usable(), 48);
+    let mut files: Vec<String> = report.all_diagnostics().map(|d| d.file.clone()).collect();
+    files.sort();
+    assert_eq!(
+        files,
+        [
+            "participants/SG-023/weights.csv",
+            "participants/SG-029/intake.csv",
+            "participants/SG-032/weights.csv",
+            "participants/SG-033/weights.csv",
+            "participants/SG-042/weights.csv",
+            "participants/SG-043/activity.csv",
+            "participants/SG-045/weights.csv",
+            "participants/SG-049/profile.yaml",
+        ]
+    );
+}
