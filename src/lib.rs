@@ -11,20 +11,25 @@
 //!    small-cell suppression.
 //! 5. [`report`] builds the report model and renders it to HTML (handlebars templates) and PDF
 //!    (through [`render`]), returning bytes.
-//! 6. [`runner`] orchestrates a run and writes every output atomically.
+//! 6. [`runner`] orchestrates a run; [`output`] writes every output atomically, [`tidy`] the
+//!    metrics for analysis.
 
 #![forbid(unsafe_code)]
 
 pub mod activities;
 pub mod check;
+pub mod cli;
 pub mod demo;
 pub mod diag;
 pub mod exit_code;
 pub mod group;
 pub mod modules;
+pub mod output;
 pub mod participant;
 pub mod program;
+pub mod progress;
 pub mod render;
 pub mod report;
 pub mod runner;
+pub mod tidy;
 pub mod yaml;

@@ -1,1 +1,82 @@
-fn main() {}
+//! The `cohortpress` binary: parse the command line, set up logging, call the library, map the
+//! outcome to a documented exit code.
+
+use clap::Parser;
+use cohortpress::cli::{Cli, Command, LogFormat, TemplatesAction};
+use cohortpress::exit_code;
+use std::process::ExitCode;
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let code = match cli.command {
+        Command::Check { program, as_of } => {
+            init_logging(false, LogFormat::Text);
+            let as_of = as_of.unwrap_or_else(today);
+            let stdout = std::io::stdout();
+            cohortpress::check::run_check(&program, as_of, &mut stdout.lock())
+        }
+        Command::Run(args) => {
+            init_logging(args.quiet, args.log_format);
+            cohortpress::runner::run_command(&args, today())
+        }
+        Command::Modules { program } => cohortpress::runner::modules_command(program.as_deref()),
+        Command::Templates {
+            action: TemplatesAction::Dump { dir },
+        } => cohortpress::report::templates::dump_command(&dir),
+        Command::DemoProgram {
+            out,
+            participants,
+            seed,
+            no_defects,
+        } => {
+            let opts = cohortpress::demo::DemoOptions {
+                participants,
+                seed,
+                with_defects: !no_defects,
+            };
+            match cohortpress::demo::generate(&out, &opts) {
+                Ok(s) => {
+                    println!(
+                        "wrote a demo program with {} participants ({} files, {} bytes) to {}",
+                        s.participants,
+                        s.files,
+                        s.bytes,
+                        out.display()
+                    );
+                    exit_code::SUCCESS
+                }
+                Err(e) => {
+                    eprintln!(
+                        "error: cannot write the demo program to {}: {e}",
+                        out.display()
+                    );
+                    exit_code::OUTPUT_FAILED
+                }
+            }
+        }
+    };
+    ExitCode::from(code as u8)
+}
+
+fn today() -> chrono::NaiveDate {
+    chrono::Local::now().date_naive()
+}
+
+/// Logs go to standard error; the level comes from `COHORTPRESS_LOG` (e.g. `debug`), else
+/// `info` (`warn` with `--quiet`).
+fn init_logging(quiet: bool, format: LogFormat) {
+    use tracing_subscriber::EnvFilter;
+    let default = if quiet { "warn" } else { "info" };
+    let filter = EnvFilter::try_from_env("COHORTPRESS_LOG")
+        .unwrap_or_else(|_| EnvFilter::new(format!("{default},handlebars=warn")));
+    let builder = tracing_subscriber::fmt()
+        .with_env_filter(filter)
+        .with_writer(std::io::stderr)
+        .with_target(false)
+        .with_ansi(std::io::IsTerminal::is_terminal(&std::io::stderr()))
+        .without_time();
+    let _ = match format {
+        LogFormat::Text => builder.try_init(),
+        LogFormat::Json => builder.json().try_init(),
+    };
+}

@@ -1,0 +1,129 @@
+//! The command line (clap). Clap types stay in this module; [`crate::runner::RunPlan`] is what
+//! the rest of the program sees.
+
+use chrono::NaiveDate;
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::path::PathBuf;
+
+/// Batch monthly reports for group weight-management programs.
+#[derive(Debug, Parser)]
+#[command(name = "cohortpress", version, about, long_about = None, after_help = exit_codes_help())]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// Subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Load and check a program folder and report every problem in its inputs.
+    Check {
+        /// The program folder (holds program.yaml and participants/).
+        program: PathBuf,
+        /// The day treated as today: data dated after it are future data (default: today).
+        #[arg(long, value_name = "YYYY-MM-DD")]
+        as_of: Option<NaiveDate>,
+    },
+    /// Compute every metric and write the reports, tidy metrics and manifest.
+    Run(RunArgs),
+    /// List the metric modules with their settings, defaults and outputs.
+    Modules {
+        /// A program folder, to include its external modules.
+        program: Option<PathBuf>,
+    },
+    /// Work with report templates.
+    Templates {
+        /// What to do with templates.
+        #[command(subcommand)]
+        action: TemplatesAction,
+    },
+    /// Generate a fictional demo program (for trying the tool and for benchmarks).
+    DemoProgram {
+        /// Folder to write (must be empty, absent, or a previous demo program).
+        out: PathBuf,
+        /// Number of participants.
+        #[arg(long, default_value_t = 48)]
+        participants: usize,
+        /// Seed of the generator; the same seed gives byte-identical files.
+        #[arg(long, default_value_t = 2026)]
+        seed: u64,
+        /// Leave out the planted input defects.
+        #[arg(long)]
+        no_defects: bool,
+    },
+}
+
+/// `templates` actions.
+#[derive(Debug, Subcommand)]
+pub enum TemplatesAction {
+    /// Write the built-in templates into DIR, to start your own from.
+    Dump {
+        /// Folder to write into (created; existing files are not overwritten).
+        dir: PathBuf,
+    },
+}
+
+/// Output format selection on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum FormatArg {
+    /// HTML reports.
+    Html,
+    /// PDF reports.
+    Pdf,
+}
+
+/// Log line format.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum, Default)]
+pub enum LogFormat {
+    /// Plain text lines.
+    #[default]
+    Text,
+    /// One JSON object per line, for log collectors.
+    Json,
+}
+
+/// Arguments of `run`.
+#[derive(Debug, Args)]
+pub struct RunArgs {
+    /// The program folder (holds program.yaml and participants/).
+    pub program: PathBuf,
+    /// Reporting month, e.g. 2026-09 (default: program.yaml's report.period rule).
+    #[arg(long, value_name = "YYYY-MM", conflicts_with_all = ["from", "to"])]
+    pub period: Option<String>,
+    /// First day of a custom reporting period.
+    #[arg(long, value_name = "YYYY-MM-DD", requires = "to")]
+    pub from: Option<NaiveDate>,
+    /// Last day of a custom reporting period.
+    #[arg(long, value_name = "YYYY-MM-DD", requires = "from")]
+    pub to: Option<NaiveDate>,
+    /// The day treated as today: data dated after it are future data (default: today).
+    #[arg(long, value_name = "YYYY-MM-DD")]
+    pub as_of: Option<NaiveDate>,
+    /// Output folder (default: program.yaml's report.out, relative to the program folder).
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Only these participants (ids); the group report then covers only them.
+    #[arg(long, value_name = "ID", num_args = 1..)]
+    pub only: Vec<String>,
+    /// Worker threads (default: number of cores).
+    #[arg(long, short = 'j', value_name = "N")]
+    pub jobs: Option<usize>,
+    /// Formats to write (default: program.yaml's report.formats).
+    #[arg(long, value_enum, value_delimiter = ',', value_name = "html,pdf")]
+    pub formats: Vec<FormatArg>,
+    /// Print only warnings and errors.
+    #[arg(long, short = 'q')]
+    pub quiet: bool,
+    /// Log line format on standard error.
+    #[arg(long, value_enum, default_value_t = LogFormat::Text)]
+    pub log_format: LogFormat,
+}
+
+fn exit_codes_help() -> String {
+    let mut s = String::from("Exit codes:\n");
+    for (code, text) in crate::exit_code::TABLE {
+        s.push_str(&format!("  {code:>3}  {text}\n"));
+    }
+    s
+}

@@ -1,0 +1,26 @@
+//! The cautions printed on every report. One place, so HTML and PDF carry the same words.
+
+/// Cautions on a participant's own report.
+pub fn participant() -> Vec<String> {
+    vec![
+        "This report is information about your progress in the program, not medical advice. It does not diagnose or treat any condition.".into(),
+        "Figures are estimates from your own records and from published equations and models; real bodies vary, and every figure has some uncertainty.".into(),
+        "Very low intakes (below about 1,200 kcal a day for women or 1,500 for men), losing more than about 1 kg (2 lb) a week for several weeks, a BMI under 18.5, and lab values in the prediabetes or diabetes range should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise.".into(),
+        "Local rules and the advice of your own licensed clinician come first.".into(),
+    ]
+}
+
+/// Cautions on a group report.
+pub fn group(min_cell: u32) -> Vec<String> {
+    vec![
+        "This is a de-identified summary for program evaluation. It contains no names or participant ids, and it is not medical advice.".into(),
+        format!(
+            "Counts from 1 to {} are not shown (marked “<{}”), and other cells are hidden where a hidden count could otherwise be worked out by subtraction; groups with fewer than {} participants are withheld or combined.",
+            min_cell.saturating_sub(1),
+            min_cell,
+            min_cell
+        ),
+        "Weight outcomes are given under intention-to-treat (everyone who started, with the starting weight carried forward for anyone without a recent weigh-in) and for completers only; completer figures alone overstate what a program achieves.".into(),
+        "Individual clinical flags (very low intake, fast loss, low BMI, lab values in the diabetes range) are routed to participants' own reports for review by a licensed clinician; only their number appears here. Local rules and licensed practice come first.".into(),
+    ]
+}

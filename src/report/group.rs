@@ -1,0 +1,435 @@
+//! The group report model: the de-identified statistics of [`crate::group`] turned into display
+//! tables and charts. Suppressed figures print as "suppressed"; figures that cannot be computed
+//! print as "–". No names, no ids.
+
+use super::format as fmt;
+use super::{ChartView, Kv, ProgramView, TableView, cautions};
+use crate::group::shown::{Interval, Shown};
+use crate::group::{ChangeLine, GroupReport, Section, SectionStats};
+use crate::render::chart::{
+    BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle,
+};
+use crate::runner::{RunPlan, RunSummary};
+use serde::Serialize;
+
+/// What the group templates see (documented in `report-templates/CONTEXT.md`).
+#[derive(Debug, Clone, Serialize)]
+pub struct GroupReportContext {
+    /// Program and period.
+    pub program: ProgramView,
+    /// Notes about the whole report (merged or withheld groups …).
+    pub notes: Vec<String>,
+    /// The whole program first, then each group of each split.
+    pub sections: Vec<SectionView>,
+    /// How each figure was computed.
+    pub methods: Vec<Kv>,
+    /// Cautions.
+    pub cautions: Vec<String>,
+    /// Smallest count shown.
+    pub min_cell_size: u32,
+}
+
+/// One section (the program, a site, …).
+#[derive(Debug, Clone, Serialize)]
+pub struct SectionView {
+    /// `Whole program` or `Site: Kiln Row`.
+    pub title: String,
+    /// Anchor id.
+    pub anchor: String,
+    /// Why the section is withheld, when it is.
+    pub withheld: Option<String>,
+    /// Enrolment and retention (label, value).
+    pub enrolment: TableView,
+    /// Weight change lines.
+    pub outcomes: TableView,
+    /// How to read the weight change lines.
+    pub outcomes_note: String,
+    /// Milestone shares.
+    pub milestones: TableView,
+    /// Adherence and plateau figures.
+    pub adherence: TableView,
+    /// Charts of this section (names of the drawn charts, with their text alternative and data).
+    pub charts: Vec<NamedChartView>,
+    /// Names of the drawn charts (for the PDF layout).
+    #[serde(skip)]
+    pub chart_names: Vec<String>,
+}
+
+/// A chart reference in a section.
+#[derive(Debug, Clone, Serialize)]
+pub struct NamedChartView {
+    /// Chart name for the `chart` helper.
+    pub name: String,
+    /// Title, alt text and data table.
+    #[serde(flatten)]
+    pub view: ChartView,
+}
+
+/// The group model plus its charts.
+pub struct GroupReportModel {
+    /// The template context.
+    pub ctx: GroupReportContext,
+    /// Drawn charts by name.
+    pub charts: Vec<(String, Chart)>,
+}
+
+fn count(s: &Shown<u64>) -> String {
+    match s {
+        Shown::Value(v) => v.to_string(),
+        Shown::Suppressed => "suppressed".into(),
+        Shown::NotAvailable => "–".into(),
+    }
+}
+
+fn num(s: &Shown<f64>, decimals: usize, suffix: &str) -> String {
+    match s {
+        Shown::Value(v) => format!("{}{suffix}", fmt::fixed(*v, decimals)),
+        Shown::Suppressed => "suppressed".into(),
+        Shown::NotAvailable => "–".into(),
+    }
+}
+
+fn interval(s: &Shown<Interval>, decimals: usize) -> String {
+    match s {
+        Shown::Value(i) => format!(
+            "{} to {}",
+            fmt::fixed(i.lo, decimals),
+            fmt::fixed(i.hi, decimals)
+        ),
+        Shown::Suppressed => "suppressed".into(),
+        Shown::NotAvailable => "–".into(),
+    }
+}
+
+fn change_row(label: &str, c: &ChangeLine) -> Vec<String> {
+    vec![
+        label.into(),
+        count(&c.n),
+        format!(
+            "{} ({})",
+            num(&c.percent.mean, 1, " %"),
+            interval(&c.percent.mean_ci, 1)
+        ),
+        format!(
+            "{} ({})",
+            num(&c.percent.median, 1, " %"),
+            interval(&c.percent.median_ci, 1)
+        ),
+    ]
+}
+
+/// Builds the group model.
+pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupReportModel {
+    let mut charts = Vec::new();
+    let mut sections = vec![section(
+        plan,
+        &g.program,
+        "Whole program",
+        "program",
+        &mut charts,
+    )];
+    let mut notes = g.notes.clone();
+    for split in &g.splits {
+        if let Some(n) = &split.note {
+            notes.push(n.clone());
+        }
+        for (i, s) in split.sections.iter().enumerate() {
+            let title = format!("{}: {}", capitalise(&split.key), s.label);
+            let anchor = format!("{}-{i}", split.key);
+            sections.push(section(plan, s, &title, &anchor, &mut charts));
+        }
+    }
+    if summary.participants_with_errors > 0 {
+        notes.push(format!(
+            "{} participant folder(s) could not be used because of input errors and are not counted here; the run's data-quality list names the problems.",
+            summary.participants_with_errors
+        ));
+    }
+    let m = &g.methods;
+    let methods = vec![
+        Kv::new("Who counts (intention-to-treat)", &m.itt_denominator),
+        Kv::new("Missing outcome, primary (BOCF)", &m.bocf),
+        Kv::new("Sensitivity (LOCF)", &m.locf),
+        Kv::new("Completers", &m.completers),
+        Kv::new("Mean intervals", &m.mean_interval),
+        Kv::new("Median intervals", &m.median_interval),
+        Kv::new("Proportion intervals", &m.proportion_interval),
+        Kv::new("Small cells", &m.suppression),
+        Kv::new("Small groups", &m.small_groups),
+    ];
+    let ctx = GroupReportContext {
+        program: ProgramView::new(plan),
+        notes,
+        sections,
+        methods,
+        cautions: cautions::group(g.min_cell_size),
+        min_cell_size: g.min_cell_size,
+    };
+    GroupReportModel { ctx, charts }
+}
+
+fn capitalise(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
+        None => String::new(),
+    }
+}
+
+fn section(
+    plan: &RunPlan,
+    s: &Section,
+    title: &str,
+    anchor: &str,
+    charts: &mut Vec<(String, Chart)>,
+) -> SectionView {
+    let mut view = SectionView {
+        title: title.into(),
+        anchor: anchor.into(),
+        withheld: s.withheld.clone(),
+        enrolment: TableView::default(),
+        outcomes: TableView::default(),
+        outcomes_note: String::new(),
+        milestones: TableView::default(),
+        adherence: TableView::default(),
+        charts: Vec::new(),
+        chart_names: Vec::new(),
+    };
+    let Some(st) = &s.stats else {
+        if view.withheld.is_none() {
+            view.withheld =
+                Some("Withheld: too few participants to report without identifying anyone.".into());
+        }
+        return view;
+    };
+    fill(plan, st, anchor, &mut view, charts);
+    view
+}
+
+fn fill(
+    plan: &RunPlan,
+    st: &SectionStats,
+    anchor: &str,
+    view: &mut SectionView,
+    charts: &mut Vec<(String, Chart)>,
+) {
+    let e = &st.enrolment;
+    view.enrolment = TableView {
+        header: vec!["".into(), "Participants".into()],
+        rows: vec![
+            vec!["Enrolled".into(), count(&e.enrolled)],
+            vec!["Active at the end of the period".into(), count(&e.active)],
+            vec!["Withdrawn".into(), count(&e.withdrawn)],
+            vec![
+                "Started (baseline weight recorded)".into(),
+                count(&e.started),
+            ],
+            vec![
+                "With a weigh-in in the last 4 weeks of the period".into(),
+                count(&e.with_outcome),
+            ],
+            vec!["Retention".into(), num(&e.retention_percent, 0, " %")],
+        ],
+    };
+    let w = &st.weight_change;
+    view.outcomes = TableView {
+        header: vec![
+            "Weight change from baseline".into(),
+            "n".into(),
+            "Mean (95 % CI)".into(),
+            "Median (95 % CI)".into(),
+        ],
+        rows: vec![
+            change_row("Intention-to-treat, baseline carried forward", &w.bocf),
+            change_row(
+                "Intention-to-treat, last observation carried forward",
+                &w.locf,
+            ),
+            change_row("Completers only", &w.completers),
+        ],
+    };
+    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The first line is the primary, conservative figure.".into();
+    view.milestones = TableView {
+        header: vec![
+            "Loss of at least".into(),
+            "Reached".into(),
+            "Of".into(),
+            "Share (95 % CI)".into(),
+        ],
+        rows: st
+            .milestones
+            .iter()
+            .map(|m| {
+                vec![
+                    format!("{} %", fmt::fixed(m.loss_at_least_percent, 0)),
+                    count(&m.reached),
+                    count(&m.denominator),
+                    format!("{} ({})", num(&m.percent, 0, " %"), interval(&m.ci, 0)),
+                ]
+            })
+            .collect(),
+    };
+    let a = &st.adherence;
+    let p = &st.plateau;
+    view.adherence = TableView {
+        header: vec!["Measure".into(), "Median (n)".into()],
+        rows: vec![
+            vec![
+                "Activity minutes per week (moderate-equivalent)".into(),
+                format!(
+                    "{} ({})",
+                    num(&a.activity_minutes_per_week.median, 0, ""),
+                    count(&a.activity_minutes_per_week.n)
+                ),
+            ],
+            vec![
+                "Weigh-ins per week".into(),
+                format!(
+                    "{} ({})",
+                    num(&a.weigh_ins_per_week.median, 1, ""),
+                    count(&a.weigh_ins_per_week.n)
+                ),
+            ],
+            vec![
+                "Food-log days per week".into(),
+                format!(
+                    "{} ({})",
+                    num(&a.food_log_days_per_week.median, 1, ""),
+                    count(&a.food_log_days_per_week.n)
+                ),
+            ],
+            vec![
+                "Session attendance".into(),
+                format!(
+                    "{} ({})",
+                    num(&a.attendance_percent.median, 0, " %"),
+                    count(&a.attendance_percent.n)
+                ),
+            ],
+            vec![
+                "On a plateau at the end of the period".into(),
+                format!(
+                    "{} of {} with enough data: {} ({})",
+                    count(&p.in_plateau),
+                    count(&p.with_verdict),
+                    num(&p.percent, 0, " %"),
+                    interval(&p.ci, 0)
+                ),
+            ],
+            vec![
+                "Flags for clinician review (count only)".into(),
+                count(&st.clinician_review_flags),
+            ],
+        ],
+    };
+
+    // Distribution of % change.
+    let hist_name = format!("{anchor}-distribution");
+    let bars: Vec<Bar> = st
+        .histogram
+        .bins
+        .iter()
+        .map(|b| Bar {
+            label: b.label.to_string(),
+            value: b.count.value().copied().unwrap_or(0) as f64,
+            suppressed: !matches!(b.count, Shown::Value(_)),
+        })
+        .collect();
+    let hist_alt = "Number of participants by percent weight change from baseline (intention-to-treat, baseline carried forward). Suppressed bars are drawn empty.".to_string();
+    let hist_table = TableView {
+        header: vec!["Change".into(), "Participants".into()],
+        rows: st
+            .histogram
+            .bins
+            .iter()
+            .map(|b| vec![b.label.to_string(), count(&b.count)])
+            .collect(),
+    };
+    charts.push((
+        hist_name.clone(),
+        Chart::Bars(BarChart {
+            title: "Distribution of weight change".into(),
+            y_label: "participants".into(),
+            bars,
+            target: None,
+            alt_text: hist_alt.clone(),
+        }),
+    ));
+    view.charts.push(NamedChartView {
+        name: hist_name.clone(),
+        view: ChartView {
+            title: "Distribution of weight change".into(),
+            alt: hist_alt,
+            table: hist_table,
+        },
+    });
+    view.chart_names.push(hist_name);
+
+    // Mean trajectory by week since enrolment (weeks with a shown mean only).
+    let start = plan.program.info.start;
+    let pts: Vec<_> = st
+        .trajectory
+        .iter()
+        .filter_map(|wp| {
+            let m = *wp.mean_percent.value()?;
+            let d = start + chrono::Duration::days(7 * i64::from(wp.week + 1));
+            Some((d, m, wp.ci.value().copied()))
+        })
+        .collect();
+    if pts.len() >= 2 {
+        let name = format!("{anchor}-trajectory");
+        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band; weeks with too few participants are left out. The axis counts weeks from the program's start date.".to_string();
+        let table = TableView {
+            header: vec!["Week".into(), "n".into(), "Mean change (95 % CI)".into()],
+            rows: st
+                .trajectory
+                .iter()
+                .map(|wp| {
+                    vec![
+                        (wp.week + 1).to_string(),
+                        count(&wp.n),
+                        format!(
+                            "{} ({})",
+                            num(&wp.mean_percent, 1, " %"),
+                            interval(&wp.ci, 1)
+                        ),
+                    ]
+                })
+                .collect(),
+        };
+        charts.push((
+            name.clone(),
+            Chart::Line(LineChart {
+                title: "Mean weight change by week".into(),
+                y_label: "% change".into(),
+                lines: vec![LineSeries {
+                    label: "Mean % change".into(),
+                    points: pts.iter().map(|(d, m, _)| (*d, *m)).collect(),
+                    style: LineStyle::Solid,
+                }],
+                bands: vec![BandSeries {
+                    label: "95 % CI".into(),
+                    points: pts
+                        .iter()
+                        .filter_map(|(d, _, ci)| ci.map(|c| (*d, c.lo, c.hi)))
+                        .collect(),
+                }],
+                spans: vec![],
+                hlines: vec![HLine {
+                    label: "No change".into(),
+                    y: 0.0,
+                }],
+                alt_text: alt.clone(),
+            }),
+        ));
+        view.charts.push(NamedChartView {
+            name: name.clone(),
+            view: ChartView {
+                title: "Mean weight change by week".into(),
+                alt,
+                table,
+            },
+        });
+        view.chart_names.push(name);
+    }
+}

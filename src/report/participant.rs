@@ -1,0 +1,865 @@
+//! The participant report model: everything the participant templates and the PDF layout show,
+//! built once from the module outputs so both formats print the same figures.
+
+use super::format as fmt;
+use super::{ChartView, Kv, TableView, cautions};
+use crate::diag::{Diagnostic, Severity};
+use crate::modules::ModuleResults;
+use crate::render::chart::{
+    BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
+};
+use crate::runner::RunPlan;
+use chrono::NaiveDate;
+use cohortpress_metric_api::{
+    Cell, FlagSeverity, ModuleOutput, ParticipantData, Table, UnitSystem,
+};
+use serde::Serialize;
+
+/// What the participant templates see (documented field by field in
+/// `report-templates/CONTEXT.md`).
+#[derive(Debug, Clone, Serialize)]
+pub struct ParticipantReportContext {
+    /// Program and period.
+    pub program: super::ProgramView,
+    /// Who the report is for.
+    pub participant: PersonView,
+    /// One-line status in plain words.
+    pub headline: String,
+    /// Key figures (label, value).
+    pub summary: Vec<Kv>,
+    /// Milestones (3, 5, 7, 10 %).
+    pub milestones: Vec<MilestoneView>,
+    /// Weight chart (title, alt text, data table; the SVG is added at render time).
+    pub weight_chart: ChartView,
+    /// Energy balance section, when the energy module ran.
+    pub energy: Option<EnergyView>,
+    /// Adherence section, when the adherence module ran.
+    pub adherence: Option<AdherenceView>,
+    /// Plateau assessments, when a plateau was found.
+    pub plateaus: Vec<PlateauView>,
+    /// "What it takes" options.
+    pub options: Vec<OptionView>,
+    /// Lab values with categories.
+    pub labs: Option<TableView>,
+    /// Flags raised by the modules (clinical ones first).
+    pub flags: Vec<FlagView>,
+    /// Data problems found in this participant's files.
+    pub data_notes: Vec<String>,
+    /// Modules that failed for this participant.
+    pub module_failures: Vec<String>,
+    /// Values from other (external) modules.
+    pub extra: Vec<ExtraView>,
+    /// The cautions printed on every participant report.
+    pub cautions: Vec<String>,
+}
+
+/// The participant.
+#[derive(Debug, Clone, Serialize)]
+pub struct PersonView {
+    /// Participant id.
+    pub id: String,
+    /// Name if given, else the id.
+    pub display_name: String,
+    /// Facts about the participant (label, value).
+    pub facts: Vec<Kv>,
+}
+
+/// One milestone.
+#[derive(Debug, Clone, Serialize)]
+pub struct MilestoneView {
+    /// `5 % loss`.
+    pub label: String,
+    /// Reached?
+    pub reached: bool,
+    /// When, if reached.
+    pub reached_on: String,
+}
+
+/// Energy-balance section.
+#[derive(Debug, Clone, Serialize)]
+pub struct EnergyView {
+    /// Key figures.
+    pub items: Vec<Kv>,
+    /// Short explanation of what the figures mean.
+    pub explanation: String,
+    /// Weekly table and chart.
+    pub chart: ChartView,
+}
+
+/// Adherence section.
+#[derive(Debug, Clone, Serialize)]
+pub struct AdherenceView {
+    /// Key figures.
+    pub items: Vec<Kv>,
+    /// Weekly activity chart with its data table (all weekly columns).
+    pub chart: ChartView,
+}
+
+/// One plateau and what it most likely is.
+#[derive(Debug, Clone, Serialize)]
+pub struct PlateauView {
+    /// `12 Jul 2026 – 20 Aug 2026`.
+    pub period: String,
+    /// Plain-words classification.
+    pub verdict: String,
+    /// The numbers behind it.
+    pub evidence: String,
+}
+
+/// One "what it takes" option.
+#[derive(Debug, Clone, Serialize)]
+pub struct OptionView {
+    /// The option in plain words.
+    pub text: String,
+    /// Whether it is within safe limits.
+    pub feasible: bool,
+    /// Why not, when not.
+    pub reason: String,
+}
+
+/// A flag shown to the participant.
+#[derive(Debug, Clone, Serialize)]
+pub struct FlagView {
+    /// `clinical`, `notice` or `info`.
+    pub severity: String,
+    /// For review by a licensed clinician?
+    pub clinical: bool,
+    /// The message.
+    pub message: String,
+}
+
+/// Values of another module.
+#[derive(Debug, Clone, Serialize)]
+pub struct ExtraView {
+    /// Module id.
+    pub module: String,
+    /// Its scalars and texts.
+    pub items: Vec<Kv>,
+}
+
+/// The participant model plus its charts (charts are drawn per format at render time).
+pub struct ParticipantReport {
+    /// The template context.
+    pub ctx: ParticipantReportContext,
+    /// Weight chart.
+    pub weight_chart: Chart,
+    /// Weekly energy chart, when present.
+    pub energy_chart: Option<Chart>,
+    /// Weekly activity chart, when present.
+    pub activity_chart: Option<Chart>,
+}
+
+fn output<'a>(results: &'a ModuleResults, id: &str) -> Option<&'a ModuleOutput> {
+    results
+        .outputs
+        .iter()
+        .find(|(m, _)| m == id)
+        .map(|(_, o)| o)
+}
+
+fn cell_text(c: &Cell) -> String {
+    match c {
+        Cell::Number(n) => fmt::fixed(*n, if n.fract() == 0.0 { 0 } else { 1 }),
+        Cell::Text(t) => t.clone(),
+        Cell::Empty => String::new(),
+    }
+}
+
+fn col(t: &Table, name: &str) -> Option<usize> {
+    t.columns.iter().position(|c| c.name == name)
+}
+
+fn cell<'a>(t: &'a Table, row: &'a [Cell], name: &str) -> Option<&'a Cell> {
+    col(t, name).and_then(|i| row.get(i))
+}
+
+fn cell_num(t: &Table, row: &[Cell], name: &str) -> Option<f64> {
+    match cell(t, row, name)? {
+        Cell::Number(n) => Some(*n),
+        _ => None,
+    }
+}
+
+fn cell_str(t: &Table, row: &[Cell], name: &str) -> String {
+    cell(t, row, name).map(cell_text).unwrap_or_default()
+}
+
+fn cell_date(t: &Table, row: &[Cell], name: &str) -> Option<NaiveDate> {
+    match cell(t, row, name)? {
+        Cell::Text(s) => NaiveDate::parse_from_str(s, "%Y-%m-%d").ok(),
+        _ => None,
+    }
+}
+
+/// Builds the participant report.
+pub fn build(
+    plan: &RunPlan,
+    data: &ParticipantData,
+    results: &ModuleResults,
+    diags: &[Diagnostic],
+) -> ParticipantReport {
+    let units = plan.program.info.units;
+    let p = &data.profile;
+    let trend = output(results, "trend");
+    let energy = output(results, "energy");
+    let adherence = output(results, "adherence");
+    let outcomes = output(results, "outcomes");
+
+    let mut facts = vec![Kv::new("Participant id", &p.id)];
+    facts.push(Kv::new("Enrolled", &fmt::date(p.enrolled)));
+    if let Some(w) = p.withdrew {
+        facts.push(Kv::new("Left the program", &fmt::date(w)));
+    }
+    facts.push(Kv::new("Height", &fmt::height(p.height.cm(), units)));
+    for (k, v) in &p.groups {
+        facts.push(Kv::new(&capitalise(k), v));
+    }
+
+    // Summary figures.
+    let mut summary = Vec::new();
+    let sc = |o: Option<&ModuleOutput>, n: &str| o.and_then(|o| o.scalar(n));
+    if let Some(w) = sc(trend, "current_weight_kg").or(sc(outcomes, "current_weight_kg")) {
+        summary.push(Kv::new("Current weight (trend)", &fmt::weight(w, units)));
+    }
+    if let Some(b) = sc(outcomes, "baseline_weight_kg") {
+        summary.push(Kv::new("Starting weight", &fmt::weight(b, units)));
+    }
+    if let (Some(c), Some(pc)) = (sc(outcomes, "change_kg"), sc(outcomes, "change_percent")) {
+        summary.push(Kv::new(
+            "Change since start",
+            &format!(
+                "{} ({})",
+                fmt::weight_change(c, units),
+                fmt::percent_change(pc)
+            ),
+        ));
+    }
+    if let Some(r) = sc(trend, "slope_kg_per_week") {
+        summary.push(Kv::new(
+            "Recent rate (last 4 weeks)",
+            &fmt::rate_per_week(r, units),
+        ));
+    }
+    if let Some(bmi) = sc(outcomes, "bmi_current_kg_m2") {
+        let cat = outcomes
+            .and_then(|o| o.texts.iter().find(|t| t.name == "bmi_category_current"))
+            .map(|t| t.label.clone())
+            .unwrap_or_default();
+        summary.push(Kv::new(
+            "BMI",
+            &format!("{} kg/m² ({cat})", fmt::fixed(bmi, 1)),
+        ));
+    }
+
+    let headline = headline(trend, outcomes, units);
+
+    let milestones = outcomes
+        .and_then(|o| o.table("milestones"))
+        .map(|t| {
+            t.rows
+                .iter()
+                .map(|r| MilestoneView {
+                    label: format!("{} % loss", cell_str(t, r, "threshold_percent")),
+                    reached: cell_str(t, r, "reached") == "yes",
+                    reached_on: cell_date(t, r, "date_reached")
+                        .map(fmt::date)
+                        .unwrap_or_default(),
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+
+    // Weight chart.
+    let target_kg = sc(outcomes, "baseline_weight_kg")
+        .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
+    let (weight_chart, weight_view) = weight_chart(trend, energy, target_kg, units, plan);
+
+    // Energy.
+    let (energy_view, energy_chart) = match energy {
+        Some(e) => {
+            let (v, c) = energy_section(e);
+            (Some(v), c)
+        }
+        None => (None, None),
+    };
+
+    // Adherence.
+    let (adherence_view, activity_chart) = match adherence {
+        Some(a) => {
+            let (v, c) = adherence_section(a, p.targets.activity_minutes_per_week);
+            (Some(v), Some(c))
+        }
+        None => (None, None),
+    };
+
+    // Plateaus and options.
+    let plateaus = energy
+        .and_then(|e| e.table("plateau_assessment"))
+        .map(|t| {
+            t.rows
+                .iter()
+                .map(|r| {
+                    let period = match (cell_date(t, r, "start"), cell_date(t, r, "end")) {
+                        (Some(a), Some(b)) => format!("{} – {}", fmt::date(a), fmt::date(b)),
+                        _ => String::new(),
+                    };
+                    let verdict = match cell_str(t, r, "classification").as_str() {
+                        "expected_slowdown" => "The slowdown expected at your new, lower weight: your body now uses less energy than when you started.".to_string(),
+                        "intake_drift" => "Most likely a gradual rise in how much is eaten: the weight trend implies a higher intake than before the plateau.".to_string(),
+                        _ => "The data do not yet say clearly which it is.".to_string(),
+                    };
+                    PlateauView { period, verdict, evidence: cell_str(t, r, "evidence") }
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+    let options = energy
+        .and_then(|e| e.table("options"))
+        .map(|t| t.rows.iter().map(|r| option_view(t, r)).collect())
+        .unwrap_or_default();
+
+    // Labs.
+    let labs = outcomes
+        .and_then(|o| o.table("labs"))
+        .filter(|t| !t.rows.is_empty())
+        .map(|t| TableView {
+            header: vec![
+                "Date".into(),
+                "Test".into(),
+                "Value".into(),
+                "Also".into(),
+                "Range".into(),
+            ],
+            rows: t
+                .rows
+                .iter()
+                .map(|r| {
+                    let v = format!("{} {}", cell_str(t, r, "value"), cell_str(t, r, "unit"));
+                    let alt = format!(
+                        "{} {}",
+                        cell_str(t, r, "value_alt"),
+                        cell_str(t, r, "unit_alt")
+                    );
+                    vec![
+                        cell_date(t, r, "date").map(fmt::date).unwrap_or_default(),
+                        lab_name(&cell_str(t, r, "test")),
+                        v.trim().to_string(),
+                        alt.trim().to_string(),
+                        cell_str(t, r, "category").replace('_', " "),
+                    ]
+                })
+                .collect(),
+        });
+
+    // Flags: clinical first, then notices, then information.
+    let mut flags: Vec<FlagView> = results
+        .outputs
+        .iter()
+        .flat_map(|(_, o)| o.flags.iter())
+        .map(|f| FlagView {
+            severity: match f.severity {
+                FlagSeverity::Clinical => "clinical",
+                FlagSeverity::Notice => "notice",
+                FlagSeverity::Info => "info",
+            }
+            .into(),
+            clinical: f.severity == FlagSeverity::Clinical,
+            message: f.message.clone(),
+        })
+        .collect();
+    flags.sort_by_key(|f| match f.severity.as_str() {
+        "clinical" => 0,
+        "notice" => 1,
+        _ => 2,
+    });
+
+    let data_notes = diags
+        .iter()
+        .map(|d| {
+            let sev = if d.severity == Severity::Error {
+                "Not used"
+            } else {
+                "Note"
+            };
+            let file = d.file.rsplit('/').next().unwrap_or(&d.file);
+            let line = d.line.map(|l| format!(", line {l}")).unwrap_or_default();
+            format!("{sev} — {file}{line}: {}", d.message)
+        })
+        .collect();
+
+    let module_failures = results
+        .failures
+        .iter()
+        .map(|f| format!("{}: {}", f.module, f.message))
+        .collect();
+
+    let builtin = ["trend", "energy", "adherence", "outcomes"];
+    let extra = results
+        .outputs
+        .iter()
+        .filter(|(m, _)| !builtin.contains(&m.as_str()))
+        .map(|(m, o)| ExtraView {
+            module: m.clone(),
+            items: o
+                .scalars
+                .iter()
+                .map(|s| {
+                    Kv::new(
+                        &s.label,
+                        &s.value
+                            .map(|v| format!("{} {}", fmt::fixed(v, 1), s.unit))
+                            .unwrap_or_else(|| "–".into()),
+                    )
+                })
+                .chain(
+                    o.texts
+                        .iter()
+                        .map(|t| Kv::new(&t.name.replace('_', " "), &t.label)),
+                )
+                .collect(),
+        })
+        .collect();
+
+    let ctx = ParticipantReportContext {
+        program: super::ProgramView::new(plan),
+        participant: PersonView {
+            id: p.id.clone(),
+            display_name: p.name.clone().unwrap_or_else(|| p.id.clone()),
+            facts,
+        },
+        headline,
+        summary,
+        milestones,
+        weight_chart: weight_view,
+        energy: energy_view,
+        adherence: adherence_view,
+        plateaus,
+        options,
+        labs,
+        flags,
+        data_notes,
+        module_failures,
+        extra,
+        cautions: cautions::participant(),
+    };
+    ParticipantReport {
+        ctx,
+        weight_chart,
+        energy_chart,
+        activity_chart,
+    }
+}
+
+fn capitalise(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
+        None => String::new(),
+    }
+}
+
+fn lab_name(code: &str) -> String {
+    match code {
+        "fasting_glucose" => "Fasting glucose".into(),
+        "hba1c" => "HbA1c".into(),
+        "waist" => "Waist".into(),
+        "systolic_bp" => "Blood pressure (systolic)".into(),
+        "diastolic_bp" => "Blood pressure (diastolic)".into(),
+        other => other.replace('_', " "),
+    }
+}
+
+fn headline(
+    trend: Option<&ModuleOutput>,
+    outcomes: Option<&ModuleOutput>,
+    units: UnitSystem,
+) -> String {
+    let status = trend
+        .and_then(|t| t.text("status"))
+        .unwrap_or("insufficient_data");
+    let change = outcomes.and_then(|o| o.scalar("change_kg"));
+    let rate = trend.and_then(|t| t.scalar("slope_kg_per_week"));
+    let since = change
+        .map(|c| format!(" Since you started: {}.", fmt::weight_change(c, units)))
+        .unwrap_or_default();
+    let rate_s = rate
+        .map(|r| fmt::rate_per_week(r, units))
+        .unwrap_or_default();
+    match status {
+        "losing" => format!(
+            "Your weight trend is going down, by about {rate_s} over the last four weeks.{since}"
+        ),
+        "plateau" => {
+            format!("Your weight has held steady over the last four weeks (a plateau).{since}")
+        }
+        "regaining" => {
+            format!("Your weight trend has been rising over the last four weeks ({rate_s}).{since}")
+        }
+        "stable" => format!("Your weight has been stable over the last four weeks.{since}"),
+        _ => format!("There are not yet enough weigh-ins to see a clear trend.{since}"),
+    }
+}
+
+fn option_view(t: &Table, r: &[Cell]) -> OptionView {
+    let kind = cell_str(t, r, "kind");
+    let change = cell_num(t, r, "change_per_day").unwrap_or(0.0);
+    let text = match kind.as_str() {
+        "intake" => format!(
+            "Eat about {} less a day{}",
+            fmt::kcal_per_day(change.abs()),
+            cell_num(t, r, "resulting_intake_kcal_per_day")
+                .map(|v| format!(" (about {} in all)", fmt::kcal_per_day(v)))
+                .unwrap_or_default()
+        ),
+        "walking" => format!(
+            "Walk about {} minutes more a day at an easy pace (about 3 mph / 5 km/h)",
+            fmt::fixed(change.abs(), 0)
+        ),
+        other => format!("{other}: {}", fmt::fixed(change, 0)),
+    };
+    OptionView {
+        text,
+        feasible: cell_str(t, r, "feasible") == "yes",
+        reason: cell_str(t, r, "reason"),
+    }
+}
+
+fn weight_chart(
+    trend: Option<&ModuleOutput>,
+    energy: Option<&ModuleOutput>,
+    target_kg: Option<f64>,
+    units: UnitSystem,
+    plan: &RunPlan,
+) -> (Chart, ChartView) {
+    let conv = |kg: f64| fmt::weight_value(kg, units);
+    let unit = fmt::weight_unit(units);
+    let mut lines = Vec::new();
+    let mut bands = Vec::new();
+    let mut spans = Vec::new();
+    let mut table = TableView {
+        header: vec![
+            "Week ending".into(),
+            format!("Trend ({unit})"),
+            format!("95 % band ({unit})"),
+        ],
+        rows: Vec::new(),
+    };
+    if let Some(t) = trend {
+        if let Some(s) = t.series("weigh_ins") {
+            lines.push(LineSeries {
+                label: "Weigh-ins".into(),
+                points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
+                style: LineStyle::Dots,
+            });
+        }
+        if let Some(s) = t.series("weight_trend") {
+            bands.push(BandSeries {
+                label: "Trend 95 % band".into(),
+                points: s
+                    .points
+                    .iter()
+                    .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
+                    .collect(),
+            });
+            lines.push(LineSeries {
+                label: "Trend".into(),
+                points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
+                style: LineStyle::Solid,
+            });
+            let n = s.points.len();
+            for (i, p) in s.points.iter().enumerate() {
+                if (n - 1 - i) % 7 == 0 {
+                    table.rows.push(vec![
+                        fmt::date(p.date),
+                        fmt::fixed(conv(p.value), 1),
+                        match (p.lower, p.upper) {
+                            (Some(l), Some(u)) => {
+                                format!("{}–{}", fmt::fixed(conv(l), 1), fmt::fixed(conv(u), 1))
+                            }
+                            _ => String::new(),
+                        },
+                    ]);
+                }
+            }
+        }
+        if let Some(pt) = t.table("periods") {
+            for r in &pt.rows {
+                let kind = match cell_str(pt, r, "kind").as_str() {
+                    "plateau" => SpanKind::Plateau,
+                    "regain" => SpanKind::Regain,
+                    _ => continue,
+                };
+                if let (Some(from), Some(to)) = (cell_date(pt, r, "start"), cell_date(pt, r, "end"))
+                {
+                    let label = if kind == SpanKind::Plateau {
+                        "Plateau"
+                    } else {
+                        "Regain"
+                    };
+                    spans.push(Span {
+                        label: label.into(),
+                        from,
+                        to,
+                        kind,
+                    });
+                }
+            }
+        }
+    }
+    if let Some(s) = energy.and_then(|e| e.series("forecast_weight")) {
+        bands.push(BandSeries {
+            label: "Forecast band".into(),
+            points: s
+                .points
+                .iter()
+                .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
+                .collect(),
+        });
+        lines.push(LineSeries {
+            label: "Forecast".into(),
+            points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
+            style: LineStyle::Dashed,
+        });
+    }
+    let mut hlines = Vec::new();
+    if let Some(t) = target_kg {
+        hlines.push(HLine {
+            label: format!("Target {}", fmt::weight(t, units)),
+            y: conv(t),
+        });
+    }
+    let alt = format!(
+        "Weight chart for {} to {}: weigh-ins, the smoothed trend with its 95 % band{}{}.",
+        fmt::date(plan.program.info.start),
+        fmt::date(plan.period.to),
+        if spans.is_empty() {
+            ""
+        } else {
+            ", plateau and regain periods shaded"
+        },
+        if target_kg.is_some() {
+            ", and the target weight"
+        } else {
+            ""
+        }
+    );
+    let chart = Chart::Line(LineChart {
+        title: "Weight".into(),
+        y_label: unit.into(),
+        lines,
+        bands,
+        spans,
+        hlines,
+        alt_text: alt.clone(),
+    });
+    (
+        chart,
+        ChartView {
+            title: "Weight and trend".into(),
+            alt,
+            table,
+        },
+    )
+}
+
+fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
+    let mut items = Vec::new();
+    let push = |items: &mut Vec<Kv>, label: &str, name: &str| {
+        if let Some(s) = e.scalar_full(name) {
+            if let Some(v) = s.value {
+                let mut text = fmt::kcal_per_day(v);
+                if let (Some(l), Some(u)) = (s.lower, s.upper) {
+                    text = format!("{text} (95 % interval {}–{})", l.round(), u.round());
+                }
+                items.push(Kv::new(label, &text));
+            }
+        }
+    };
+    push(&mut items, "Resting energy (estimated)", "rmr_kcal_per_day");
+    push(
+        &mut items,
+        "Activity, beyond resting",
+        "activity_net_kcal_per_day",
+    );
+    push(&mut items, "Total energy use per day", "tdee_kcal_per_day");
+    push(
+        &mut items,
+        "Intake you logged (average)",
+        "logged_intake_kcal_per_day",
+    );
+    push(
+        &mut items,
+        "Intake implied by your weight trend",
+        "implied_intake_kcal_per_day",
+    );
+    if let Some(g) = e.scalar("intake_gap_kcal_per_day") {
+        items.push(Kv::new("Implied minus logged", &fmt::kcal_change(g)));
+    }
+    if let Some(b) = e.scalar("energy_balance_kcal_per_day") {
+        items.push(Kv::new("Energy balance (implied)", &fmt::kcal_change(b)));
+    }
+    if let Some(eq) = e.texts.iter().find(|t| t.name == "rmr_equation") {
+        items.push(Kv::new("Resting-energy equation", &eq.label));
+    }
+    let explanation = "Energy use is estimated from a published equation and your logged activity (net of what you would burn resting). The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard. Ranges are 95 % intervals.".to_string();
+    let mut table = TableView {
+        header: vec![
+            "Week of".into(),
+            "Energy use (kcal/day)".into(),
+            "Logged intake".into(),
+            "Implied intake".into(),
+        ],
+        rows: Vec::new(),
+    };
+    let mut chart = None;
+    if let Some(t) = e.table("weekly_energy") {
+        let mut series: [Vec<(NaiveDate, f64)>; 3] = Default::default();
+        for r in &t.rows {
+            let Some(d) = cell_date(t, r, "week_start") else {
+                continue;
+            };
+            let vals = [
+                cell_num(t, r, "expenditure_kcal_per_day"),
+                cell_num(t, r, "logged_intake_kcal_per_day"),
+                cell_num(t, r, "implied_intake_kcal_per_day"),
+            ];
+            for (i, v) in vals.iter().enumerate() {
+                if let Some(v) = v {
+                    series[i].push((d, *v));
+                }
+            }
+            let mut row = vec![fmt::date(d)];
+            row.extend(
+                vals.iter()
+                    .map(|v| v.map(|x| fmt::fixed(x, 0)).unwrap_or_else(|| "–".into())),
+            );
+            table.rows.push(row);
+        }
+        let [exp, logged, implied] = series;
+        let alt = "Weekly energy: estimated energy use, logged intake and the intake implied by the weight trend, in kcal per day.".to_string();
+        chart = Some(Chart::Line(LineChart {
+            title: "Energy per day, by week".into(),
+            y_label: "kcal/day".into(),
+            lines: vec![
+                LineSeries {
+                    label: "Energy use".into(),
+                    points: exp,
+                    style: LineStyle::Solid,
+                },
+                LineSeries {
+                    label: "Logged intake".into(),
+                    points: logged,
+                    style: LineStyle::Dots,
+                },
+                LineSeries {
+                    label: "Implied intake".into(),
+                    points: implied,
+                    style: LineStyle::Dashed,
+                },
+            ],
+            bands: vec![],
+            spans: vec![],
+            hlines: vec![],
+            alt_text: alt,
+        }));
+    }
+    let view = EnergyView {
+        items,
+        explanation,
+        chart: ChartView {
+            title: "Energy by week".into(),
+            alt: "Weekly energy use, logged intake and implied intake (kcal/day).".into(),
+            table,
+        },
+    };
+    (view, chart)
+}
+
+fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
+    let mut items = Vec::new();
+    let f1 = |n: &str| a.scalar(n).map(|v| fmt::fixed(v, 1));
+    if let Some(v) = f1("weigh_ins_per_week") {
+        items.push(Kv::new("Weigh-ins per week", &v));
+    }
+    if let Some(v) = f1("food_log_days_per_week") {
+        items.push(Kv::new("Days with a food log per week", &v));
+    }
+    if let Some(v) = a.scalar("activity_minutes_per_week") {
+        items.push(Kv::new(
+            "Activity minutes per week (moderate-equivalent)",
+            &format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0)),
+        ));
+    }
+    if let (Some(att), Some(off)) = (a.scalar("sessions_attended"), a.scalar("sessions_offered")) {
+        if off > 0.0 {
+            items.push(Kv::new(
+                "Group sessions attended",
+                &format!("{} of {}", att, off),
+            ));
+        }
+    }
+    if let Some(v) = a.scalar("longest_weigh_in_streak_days") {
+        items.push(Kv::new(
+            "Longest run of daily weigh-ins",
+            &format!("{} days", fmt::fixed(v, 0)),
+        ));
+    }
+    let mut table = TableView {
+        header: vec![
+            "Week of".into(),
+            "Weigh-ins".into(),
+            "Food-log days".into(),
+            "Activity min".into(),
+            "Sessions".into(),
+        ],
+        rows: Vec::new(),
+    };
+    let mut bars = Vec::new();
+    if let Some(t) = a.table("weekly") {
+        for r in &t.rows {
+            let d = cell_date(t, r, "week_start");
+            let mins = cell_num(t, r, "activity_minutes").unwrap_or(0.0);
+            bars.push(Bar {
+                label: d
+                    .map(|d| d.format("%-d %b").to_string())
+                    .unwrap_or_default(),
+                value: mins,
+                suppressed: false,
+            });
+            let offered = cell_str(t, r, "sessions_offered");
+            table.rows.push(vec![
+                d.map(fmt::date).unwrap_or_default(),
+                cell_str(t, r, "weigh_ins"),
+                cell_str(t, r, "food_log_days"),
+                fmt::fixed(mins, 0),
+                if offered.is_empty() || offered == "0" {
+                    "–".into()
+                } else {
+                    format!("{} of {offered}", cell_str(t, r, "sessions_attended"))
+                },
+            ]);
+        }
+    }
+    let alt = format!(
+        "Moderate-equivalent activity minutes by week, against the target of {} minutes.",
+        fmt::fixed(target, 0)
+    );
+    let chart = Chart::Bars(BarChart {
+        title: "Activity minutes by week".into(),
+        y_label: "min/week".into(),
+        bars,
+        target: Some(target),
+        alt_text: alt.clone(),
+    });
+    (
+        AdherenceView {
+            items,
+            chart: ChartView {
+                title: "Adherence by week".into(),
+                alt,
+                table,
+            },
+        },
+        chart,
+    )
+}

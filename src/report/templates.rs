@@ -1,0 +1,348 @@
+//! Report templates: the built-in set compiled in from `report-templates/`, with a program's own
+//! folder overriding it file by file, rendered by handlebars in strict mode.
+//!
+//! Strict mode makes a misspelt field an error that names the template, line and column.
+//! Escaping stays on; charts reach the page only through the `chart` helper, which prints SVG
+//! made by [`crate::render::chart`] (all text in it escaped) and nothing else raw.
+
+use super::RenderError;
+use crate::program::Program;
+use handlebars::{
+    Context, Handlebars, Helper, HelperResult, JsonRender, Output, RenderContext, RenderErrorReason,
+};
+use serde::Serialize;
+use std::path::{Path, PathBuf};
+
+/// The built-in templates: (file name, contents).
+pub const BUILTIN: &[(&str, &str)] = &[
+    (
+        "participant.html.hbs",
+        include_str!("../../report-templates/participant.html.hbs"),
+    ),
+    (
+        "group.html.hbs",
+        include_str!("../../report-templates/group.html.hbs"),
+    ),
+    (
+        "partials/style.hbs",
+        include_str!("../../report-templates/partials/style.hbs"),
+    ),
+    (
+        "partials/cautions.hbs",
+        include_str!("../../report-templates/partials/cautions.hbs"),
+    ),
+    (
+        "partials/table.hbs",
+        include_str!("../../report-templates/partials/table.hbs"),
+    ),
+    (
+        "partials/kv.hbs",
+        include_str!("../../report-templates/partials/kv.hbs"),
+    ),
+];
+
+/// A loaded template set.
+pub struct TemplateSet {
+    hb: Handlebars<'static>,
+    /// Where each template came from (`built-in` or a path), by file name.
+    pub sources: Vec<(String, String)>,
+}
+
+/// Why templates could not be loaded.
+#[derive(Debug, thiserror::Error)]
+pub enum TemplateError {
+    /// The configured folder does not exist.
+    #[error("report.templates: the folder {0} does not exist")]
+    MissingDir(String),
+    /// A file could not be read or is not allowed.
+    #[error("{0}: {1}")]
+    File(String, String),
+    /// A template does not parse.
+    #[error("{0}")]
+    Parse(String),
+    /// Partials include each other in a loop.
+    #[error("partials include each other in a loop: {0}")]
+    Cycle(String),
+}
+
+impl TemplateSet {
+    /// The built-in set with the program's `report.templates` folder (if any) on top.
+    pub fn load(program: &Program) -> Result<Self, TemplateError> {
+        let dir = program
+            .def
+            .report
+            .templates
+            .as_ref()
+            .map(|t| program.root.join(t));
+        Self::with_overrides(dir.as_deref())
+    }
+
+    /// The built-in set, with files from `dir` replacing built-ins of the same name (and adding
+    /// partials under `partials/`).
+    pub fn with_overrides(dir: Option<&Path>) -> Result<Self, TemplateError> {
+        let mut files: Vec<(String, String, String)> = BUILTIN
+            .iter()
+            .map(|(n, c)| (n.to_string(), c.to_string(), "built-in".to_string()))
+            .collect();
+        if let Some(dir) = dir {
+            if !dir.is_dir() {
+                return Err(TemplateError::MissingDir(dir.display().to_string()));
+            }
+            for (name, text, path) in read_override_dir(dir)? {
+                match files.iter_mut().find(|(n, _, _)| *n == name) {
+                    Some(slot) => *slot = (name, text, path),
+                    None => files.push((name, text, path)),
+                }
+            }
+        }
+        check_partial_cycles(&files)?;
+        let mut hb = Handlebars::new();
+        hb.set_strict_mode(true);
+        hb.set_prevent_indent(true);
+        register_helpers(&mut hb);
+        let mut sources = Vec::new();
+        for (name, text, src) in &files {
+            let key = name.trim_end_matches(".hbs");
+            let key = key.strip_prefix("partials/").unwrap_or(key);
+            hb.register_template_string(key, text)
+                .map_err(|e| TemplateError::Parse(format!("{src} ({name}): {e}")))?;
+            sources.push((name.clone(), src.clone()));
+        }
+        Ok(TemplateSet { hb, sources })
+    }
+
+    /// Renders template `name` (e.g. `participant.html`) with `ctx` plus the pre-drawn charts.
+    pub fn render<T: Serialize>(
+        &self,
+        name: &str,
+        ctx: &T,
+        charts: serde_json::Map<String, serde_json::Value>,
+    ) -> Result<String, RenderError> {
+        let mut value = serde_json::to_value(ctx)?;
+        if let serde_json::Value::Object(m) = &mut value {
+            m.insert("charts".into(), serde_json::Value::Object(charts));
+        }
+        self.hb
+            .render(name, &value)
+            .map_err(|e| RenderError::Template(e.to_string()))
+    }
+}
+
+/// Reads a user's template folder with our own walk: symbolic links and anything that is not a
+/// plain `.hbs` file inside the folder are refused (handlebars' own directory loader follows
+/// links, which could pull any readable file into a report).
+fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, TemplateError> {
+    let mut out = Vec::new();
+    for entry in walkdir::WalkDir::new(dir)
+        .follow_links(false)
+        .sort_by_file_name()
+    {
+        let entry =
+            entry.map_err(|e| TemplateError::File(dir.display().to_string(), e.to_string()))?;
+        let path = entry.path();
+        if entry.path_is_symlink() {
+            return Err(TemplateError::File(
+                path.display().to_string(),
+                "symbolic links are not allowed in a template folder".into(),
+            ));
+        }
+        if !entry.file_type().is_file() || path.extension().is_none_or(|e| e != "hbs") {
+            continue;
+        }
+        let rel: PathBuf = path
+            .strip_prefix(dir)
+            .expect("walk stays inside")
+            .to_path_buf();
+        let name = rel.to_string_lossy().replace('\\', "/");
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| TemplateError::File(path.display().to_string(), e.to_string()))?;
+        out.push((name, text, path.display().to_string()));
+    }
+    Ok(out)
+}
+
+/// Partials that include each other (a → b → a) overflow the stack in handlebars: refuse them.
+fn check_partial_cycles(files: &[(String, String, String)]) -> Result<(), TemplateError> {
+    let includes = |text: &str| -> Vec<String> {
+        text.match_indices("{{>")
+            .filter_map(|(i, _)| {
+                let rest = text[i + 3..].trim_start();
+                let name: String = rest
+                    .chars()
+                    .take_while(|c| c.is_alphanumeric() || *c == '_' || *c == '-')
+                    .collect();
+                (!name.is_empty()).then_some(name)
+            })
+            .collect()
+    };
+    let partial = |name: &str| {
+        files.iter().find(|(n, _, _)| {
+            n.strip_prefix("partials/")
+                .and_then(|n| n.strip_suffix(".hbs"))
+                == Some(name)
+        })
+    };
+    fn visit<'a>(
+        name: &str,
+        stack: &mut Vec<String>,
+        partial: &dyn Fn(&str) -> Option<&'a (String, String, String)>,
+        includes: &dyn Fn(&str) -> Vec<String>,
+    ) -> Result<(), TemplateError> {
+        if stack.iter().any(|s| s == name) {
+            stack.push(name.to_string());
+            return Err(TemplateError::Cycle(stack.join(" → ")));
+        }
+        if let Some((_, text, _)) = partial(name) {
+            stack.push(name.to_string());
+            for inc in includes(text) {
+                visit(&inc, stack, partial, includes)?;
+            }
+            stack.pop();
+        }
+        Ok(())
+    }
+    for (_, text, _) in files {
+        for inc in includes(text) {
+            visit(&inc, &mut Vec::new(), &partial, &includes)?;
+        }
+    }
+    Ok(())
+}
+
+fn register_helpers(hb: &mut Handlebars<'static>) {
+    // {{chart "weight"}}: the pre-drawn SVG chart of that name, raw. Only names under the
+    // context's `charts` map can be printed this way, never input data.
+    hb.register_helper(
+        "chart",
+        Box::new(
+            |h: &Helper<'_>,
+             _: &Handlebars<'_>,
+             ctx: &Context,
+             _: &mut RenderContext<'_, '_>,
+             out: &mut dyn Output|
+             -> HelperResult {
+                let name = h
+                    .param(0)
+                    .and_then(|p| p.value().as_str())
+                    .ok_or_else(|| RenderErrorReason::ParamNotFoundForIndex("chart", 0))?;
+                let svg = ctx
+                    .data()
+                    .get("charts")
+                    .and_then(|c| c.get(name))
+                    .and_then(|s| s.as_str())
+                    .ok_or_else(|| RenderErrorReason::Other(format!("no chart named `{name}`")))?;
+                out.write(svg)?;
+                Ok(())
+            },
+        ),
+    );
+    // {{len list}}: number of items of a list.
+    hb.register_helper(
+        "len",
+        Box::new(
+            |h: &Helper<'_>,
+             _: &Handlebars<'_>,
+             _: &Context,
+             _: &mut RenderContext<'_, '_>,
+             out: &mut dyn Output|
+             -> HelperResult {
+                let v = h
+                    .param(0)
+                    .ok_or(RenderErrorReason::ParamNotFoundForIndex("len", 0))?;
+                let n = v.value().as_array().map(|a| a.len()).unwrap_or(0);
+                out.write(&n.to_string())?;
+                Ok(())
+            },
+        ),
+    );
+    // {{fixed number decimals}}: a number with a fixed number of decimals.
+    hb.register_helper(
+        "fixed",
+        Box::new(
+            |h: &Helper<'_>,
+             _: &Handlebars<'_>,
+             _: &Context,
+             _: &mut RenderContext<'_, '_>,
+             out: &mut dyn Output|
+             -> HelperResult {
+                let v = h
+                    .param(0)
+                    .and_then(|p| p.value().as_f64())
+                    .ok_or(RenderErrorReason::ParamNotFoundForIndex("fixed", 0))?;
+                let d = h.param(1).and_then(|p| p.value().as_u64()).unwrap_or(1) as usize;
+                out.write(&handlebars::html_escape(&super::format::fixed(v, d)))?;
+                Ok(())
+            },
+        ),
+    );
+    // {{percent number}}: `62 %`.
+    hb.register_helper(
+        "percent",
+        Box::new(
+            |h: &Helper<'_>,
+             _: &Handlebars<'_>,
+             _: &Context,
+             _: &mut RenderContext<'_, '_>,
+             out: &mut dyn Output|
+             -> HelperResult {
+                let v = h
+                    .param(0)
+                    .and_then(|p| p.value().as_f64())
+                    .ok_or(RenderErrorReason::ParamNotFoundForIndex("percent", 0))?;
+                out.write(&super::format::percent(v, 0))?;
+                Ok(())
+            },
+        ),
+    );
+    // {{date "2026-09-14"}}: `14 Sep 2026`.
+    hb.register_helper(
+        "date",
+        Box::new(
+            |h: &Helper<'_>,
+             _: &Handlebars<'_>,
+             _: &Context,
+             _: &mut RenderContext<'_, '_>,
+             out: &mut dyn Output|
+             -> HelperResult {
+                let v = h
+                    .param(0)
+                    .ok_or(RenderErrorReason::ParamNotFoundForIndex("date", 0))?;
+                let s = v.value().render();
+                let text = chrono::NaiveDate::parse_from_str(&s, "%Y-%m-%d")
+                    .map(super::format::date)
+                    .unwrap_or(s);
+                out.write(&handlebars::html_escape(&text))?;
+                Ok(())
+            },
+        ),
+    );
+}
+
+/// `cohortpress templates dump DIR`: writes the built-in templates out to start from. Existing
+/// files are never overwritten.
+pub fn dump_command(dir: &Path) -> i32 {
+    let mut written = 0;
+    for (name, text) in BUILTIN {
+        let path = dir.join(name);
+        if path.exists() {
+            eprintln!("skipped {} (exists)", path.display());
+            continue;
+        }
+        if let Some(p) = path.parent() {
+            if let Err(e) = std::fs::create_dir_all(p) {
+                eprintln!("error: {}: {e}", p.display());
+                return crate::exit_code::OUTPUT_FAILED;
+            }
+        }
+        if let Err(e) = std::fs::write(&path, text) {
+            eprintln!("error: {}: {e}", path.display());
+            return crate::exit_code::OUTPUT_FAILED;
+        }
+        written += 1;
+    }
+    println!(
+        "wrote {written} template files to {}; point report.templates in program.yaml at this folder (relative to the program folder)",
+        dir.display()
+    );
+    crate::exit_code::SUCCESS
+}
