@@ -16,8 +16,12 @@ use std::time::Duration;
 /// Every built-in module, in a fixed order (the order `cohortpress modules` lists them, and one
 /// in which every module's `requires` come before it).
 pub fn builtin_modules() -> Vec<Box<dyn MetricModule>> {
-    // trend, energy and outcomes are added here as soon as their crates export them.
-    vec![Box::new(cohortpress_metric_adherence::AdherenceModule)]
+    vec![
+        Box::new(cohortpress_metric_trend::TrendModule),
+        Box::new(cohortpress_metric_energy::EnergyModule),
+        Box::new(cohortpress_metric_adherence::AdherenceModule),
+        Box::new(cohortpress_metric_outcomes::OutcomesModule),
+    ]
 }
 
 /// One checked module of a program.

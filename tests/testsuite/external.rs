@@ -598,3 +598,129 @@ fn the_wire_format_is_pinned() {
     golden("request.json", &request);
     golden("response.json", &response);
 }
+
+// ---------------------------------------------------------------------------------------------
+// Through the real binary.
+// ---------------------------------------------------------------------------------------------
+
+use crate::harness::ProgramTest;
+
+/// The `external-program` fixture, copied, with the example module in its `plugins/` folder
+/// (the fixture's program.yaml names `plugins/step_summary.py`).
+fn fixture_with_example() -> ProgramTest {
+    let t = ProgramTest::fixture("external-program");
+    std::fs::create_dir_all(t.dir.join("plugins")).unwrap();
+    // fs::copy keeps the executable bit.
+    std::fs::copy(
+        repo_root().join("plugins/example-external/step_summary.py"),
+        t.dir.join("plugins/step_summary.py"),
+    )
+    .unwrap();
+    t
+}
+
+/// `reports/metrics/participants.csv` as (participant id → column → value).
+fn participants_csv(t: &ProgramTest) -> BTreeMap<String, BTreeMap<String, String>> {
+    let path = t.dir.join("reports/metrics/participants.csv");
+    let mut reader = csv::Reader::from_path(&path).expect("participants.csv");
+    let header: Vec<String> = reader.headers().unwrap().iter().map(String::from).collect();
+    let mut rows = BTreeMap::new();
+    for record in reader.records() {
+        let record = record.unwrap();
+        let row: BTreeMap<String, String> = header
+            .iter()
+            .cloned()
+            .zip(record.iter().map(String::from))
+            .collect();
+        rows.insert(row["participant_id"].clone(), row);
+    }
+    rows
+}
+
+const MARCH: [&str; 8] = [
+    "run",
+    "{dir}",
+    "--period",
+    "2027-03",
+    "--as-of",
+    "2027-04-05",
+    "--formats",
+    "html",
+];
+
+#[test]
+fn binary_lists_the_external_module() {
+    let t = fixture_with_example();
+    let out = t.run(&["modules", "{dir}"]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    assert!(
+        out.stdout
+            .contains("\nsteps 0.1.0 (command: plugins/step_summary.py)\n")
+    );
+    assert!(
+        out.stdout
+            .contains("    step_goal: integer, default 7000 steps/d")
+    );
+}
+
+#[test]
+fn binary_run_reports_the_example_modules_metrics() {
+    let t = fixture_with_example();
+    let out = t.run(&MARCH);
+    assert_eq!(out.code, cohortpress::exit_code::SUCCESS, "{}", out.stderr);
+    let rows = participants_csv(&t);
+    // XP-01 (step_goal 8000 in the fixture): 6200, 9100, 4800, 8300, 7900 → mean 7260;
+    // 9100 and 8300 reach 8000 → 40 %. XP-02: one day, 5100.
+    assert_eq!(rows["XP-01"]["steps.mean_daily_steps"], "7260");
+    assert_eq!(rows["XP-01"]["steps.step_days"], "5");
+    assert_eq!(rows["XP-01"]["steps.days_at_goal_percent"], "40");
+    assert_eq!(rows["XP-02"]["steps.mean_daily_steps"], "5100");
+    assert_eq!(rows["XP-02"]["steps.days_at_goal_percent"], "0");
+}
+
+#[test]
+fn binary_run_contains_a_failing_module_to_its_participant() {
+    let t = fixture_with_example();
+    std::fs::copy(
+        fixture("fake-plugins/fake.py"),
+        t.dir.join("plugins/fake.py"),
+    )
+    .unwrap();
+    std::fs::write(
+        t.dir.join("program.yaml"),
+        "format_version: 1\n\
+         program: {id: ext-fixture, title: Fixture, start: 2027-03-01, end: 2027-05-31}\n\
+         modules:\n  \
+           - id: bad\n    command: [plugins/fake.py, bad, exit, XP-02]\n  \
+           - id: steps\n    command: [plugins/step_summary.py]\n",
+    )
+    .unwrap();
+    let out = t.run(&MARCH);
+    assert_eq!(
+        out.code,
+        cohortpress::exit_code::MODULE_FAILED,
+        "{}",
+        out.stderr
+    );
+    assert!(
+        out.stderr.contains(
+            "XP-02: module bad failed: external module: exited with status 3; its last error \
+             line: `fake: the disk is on fire`"
+        ),
+        "{}",
+        out.stderr
+    );
+    // The module's own stderr line is logged, prefixed by its id.
+    assert!(
+        out.stderr.contains("bad: fake: the disk is on fire"),
+        "{}",
+        out.stderr
+    );
+    let rows = participants_csv(&t);
+    assert_eq!(rows["XP-01"]["bad.weigh_ins"], "5");
+    assert_eq!(rows["XP-01"]["module_failures"], "");
+    assert_eq!(rows["XP-02"]["bad.weigh_ins"], "");
+    assert_eq!(rows["XP-02"]["module_failures"], "bad");
+    // The module after the failing one ran for XP-02 too.
+    assert_eq!(rows["XP-02"]["steps.mean_daily_steps"], "5100");
+}
