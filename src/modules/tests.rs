@@ -116,6 +116,7 @@ fn builtins() -> Vec<Box<dyn MetricModule>> {
         TestModule::boxed("panicky", &[], Act::Panic),
         TestModule::boxed("picky", &[], Act::FailForP2),
         TestModule::boxed("gamma", &["picky"], Act::Count),
+        TestModule::boxed("addon", &["extra"], Act::Count),
     ]
 }
 
@@ -361,6 +362,22 @@ fn a_missing_external_program_is_an_error_unless_optional() {
         warnings[0]
     );
     assert_eq!(warnings[0].line, Some(11));
+}
+
+#[test]
+fn a_module_requiring_a_skipped_optional_module_is_skipped_too() {
+    let (set, warnings) = build(
+        "  - id: extra\n    command: [./no-such-module.py]\n    optional: true\n  - id: addon\n  \
+         - id: alpha\n",
+    )
+    .unwrap();
+    assert_eq!(set.ids(), ["alpha"]);
+    assert_eq!(warnings.len(), 2, "{warnings:?}");
+    assert_eq!(
+        warnings[1].message,
+        "module `addon` is skipped because it requires `extra`, which was skipped"
+    );
+    assert_eq!(warnings[1].line, Some(11));
 }
 
 #[test]
