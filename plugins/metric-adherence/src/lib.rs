@@ -323,6 +323,24 @@ impl MetricModule for AdherenceModule {
                     "sessions attended / offered in the period",
                 ),
                 out(
+                    "sessions_offered_to_date",
+                    "scalar",
+                    "",
+                    "sessions offered from enrolment to the end of observation",
+                ),
+                out(
+                    "sessions_attended_to_date",
+                    "scalar",
+                    "",
+                    "sessions attended from enrolment to the end of observation",
+                ),
+                out(
+                    "attendance_to_date_percent",
+                    "scalar",
+                    "%",
+                    "sessions attended / offered since enrolment",
+                ),
+                out(
                     "weeks_meeting_activity_target_percent",
                     "scalar",
                     "%",
@@ -521,6 +539,28 @@ impl MetricModule for AdherenceModule {
             (offered > 0).then(|| 100.0 * attended as f64 / offered as f64),
             "%",
             "Sessions attended",
+        );
+        // Program to date: with monthly reports a period often holds one session or none, so
+        // attendance is judged over everything offered since enrolment (as lifestyle-program
+        // standards count sessions over months, not weeks).
+        let (offered_all, attended_all) = rec.sessions_in(start, end);
+        output.push_scalar(
+            "sessions_offered_to_date",
+            Some(offered_all as f64),
+            "",
+            "Sessions offered since enrolment",
+        );
+        output.push_scalar(
+            "sessions_attended_to_date",
+            Some(attended_all as f64),
+            "",
+            "Sessions attended since enrolment",
+        );
+        output.push_scalar(
+            "attendance_to_date_percent",
+            (offered_all > 0).then(|| 100.0 * attended_all as f64 / offered_all as f64),
+            "%",
+            "Sessions attended since enrolment",
         );
         let period_weeks: Vec<&Week> = weeks
             .iter()

@@ -459,3 +459,17 @@ fn no_data_before_enrolment_and_no_weeks_when_enrolled_after_period() {
     assert!(out.flags.is_empty());
     assert_eq!(week_start(d("2027-04-01")), d("2027-03-29"));
 }
+
+#[test]
+fn attendance_to_date_counts_every_session_since_enrolment() {
+    // A period holding only the 03-11 session (missed): the period rate is 0 %, while the
+    // program-to-date rate counts 03-04 (attended) and 03-11 (missed) = 50 %; the 03-18 session
+    // lies after the period and does not count.
+    let data = three_week_participant();
+    let out = run(&ctx("2027-03-09", "2027-03-17"), &data);
+    assert_eq!(out.scalar("sessions_offered"), Some(1.0));
+    assert_eq!(out.scalar("attendance_percent"), Some(0.0));
+    assert_eq!(out.scalar("sessions_offered_to_date"), Some(2.0));
+    assert_eq!(out.scalar("sessions_attended_to_date"), Some(1.0));
+    assert_eq!(out.scalar("attendance_to_date_percent"), Some(50.0));
+}

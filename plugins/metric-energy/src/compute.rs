@@ -54,6 +54,7 @@ struct Settings {
     floor_male: f64,
     drift_threshold: f64,
     walking_met: f64,
+    forecast_min_days: i64,
 }
 
 impl Settings {
@@ -75,6 +76,7 @@ impl Settings {
             floor_male: ctx.setting_f64("intake_floor_male", 1500.0),
             drift_threshold: ctx.setting_f64("drift_threshold_kcal_per_day", 150.0),
             walking_met: ctx.setting_f64("walking_met", 3.5),
+            forecast_min_days: ctx.setting_f64("forecast_min_days", 84.0).round().max(0.0) as i64,
         })
     }
 }
@@ -589,7 +591,9 @@ pub(crate) fn run(
     );
 
     // Forecast and steady state.
-    let horizon = (ctx.program.end - to).num_days();
+    // To the program end, but never shorter than `forecast_min_days`: in a program's last month
+    // a forecast "to the end" would have no horizon at all.
+    let horizon = (ctx.program.end - to).num_days().max(s.forecast_min_days);
     let run_forecast = |intake: f64| -> Vec<f64> {
         let start = p.model.state_at_weight(bw_cur, intake);
         p.model
@@ -624,7 +628,7 @@ pub(crate) fn run(
         forecast_end.and_then(|b| b.lower),
         forecast_end.and_then(|b| b.upper),
         "kg",
-        "Forecast weight at program end, implied intake and activity held (Hall et al. 2011 model)",
+        "Forecast weight at the end of the forecast horizon (program end, or forecast_min_days past the period if later), implied intake and activity held (Hall et al. 2011 model)",
     );
     let ss = |x: f64| p.model.steady_state_weight(x, met_h_window);
     let steady =
@@ -678,20 +682,8 @@ pub(crate) fn run(
             );
         }
     }
-    if let Some(l) = logged {
-        let floor = p.floor(&s);
-        if l < floor {
-            out.push_flag(
-                "low_logged_intake",
-                FlagSeverity::Clinical,
-                format!(
-                    "Logged intake averages {l:.0} kcal/d, below {floor:.0} kcal/d. Intakes this \
-                     low are usually followed by a licensed clinician; please review. (Logs often \
-                     under-count, so the actual intake may be higher.)"
-                ),
-            );
-        }
-    }
+    // Logged intakes below the usual floors are flagged by the outcomes module, which owns the
+    // safety flags; this module only refuses to recommend going below them.
     Ok(out)
 }
 

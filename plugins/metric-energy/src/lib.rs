@@ -151,6 +151,14 @@ impl MetricModule for EnergyModule {
                 8.0,
                 "MET of the walking option (3.5 = 2.8–3.2 mph, Compendium 2011 code 17190)",
             ),
+            number(
+                "forecast_min_days",
+                84.0,
+                "d",
+                0.0,
+                730.0,
+                "Shortest forecast horizon: the forecast runs to the program end or this many days past the period, whichever is later",
+            ),
         ];
         let outputs = vec![
             out(

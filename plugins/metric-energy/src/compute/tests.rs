@@ -211,7 +211,14 @@ fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
             free_sugars_g: None,
         })
         .collect();
-    let mut c = ctx(enrolled, end, period, serde_json::Value::Null);
+    // The forecast here runs to the program end only (no minimum horizon), so it can be
+    // compared with the simulated truth, which ends there.
+    let mut c = ctx(
+        enrolled,
+        end,
+        period,
+        serde_json::json!({"forecast_min_days": 0}),
+    );
     c.earlier.insert(
         "trend".into(),
         trend_output(enrolled, weights, 0.4, 0.005, &[]),
