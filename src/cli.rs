@@ -27,6 +27,9 @@ pub enum Command {
     },
     /// Compute every metric and write the reports, tidy metrics and manifest.
     Run(RunArgs),
+    /// Combine the outputs of `run --shard K/N` (every shard once) into the complete output:
+    /// the same files, byte for byte, as one unsharded run.
+    Merge(MergeArgs),
     /// List the metric modules with their settings, defaults and outputs.
     Modules {
         /// A program folder, to include its external modules.
@@ -118,6 +121,40 @@ pub struct RunArgs {
     /// Log line format on standard error.
     #[arg(long, value_enum, default_value_t = LogFormat::Text)]
     pub log_format: LogFormat,
+    /// Recompute only participants whose input files or settings changed since the last
+    /// complete output; reuse the rest (the output is identical to a full run).
+    #[arg(long)]
+    pub incremental: bool,
+    /// Process only shard K of N (a stable subset chosen by a hash of each participant id) and
+    /// write its participant reports and partial results; combine the shards with `merge`.
+    #[arg(long, value_name = "K/N", conflicts_with = "incremental")]
+    pub shard: Option<crate::shard::ShardSpec>,
+    /// Create output files and folders readable by the owner's group (0640/0750) instead of
+    /// owner-only (0600/0700, the default: reports hold health data).
+    #[arg(long)]
+    pub group_readable: bool,
+}
+
+/// Arguments of `merge`.
+#[derive(Debug, Args)]
+pub struct MergeArgs {
+    /// The program folder the shards were run on.
+    pub program: PathBuf,
+    /// The output folders of `run --shard 1/N` … `run --shard N/N`.
+    #[arg(required = true, value_name = "SHARD_DIR")]
+    pub shards: Vec<PathBuf>,
+    /// Output folder (default: program.yaml's report.out, relative to the program folder).
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Print only warnings and errors.
+    #[arg(long, short = 'q')]
+    pub quiet: bool,
+    /// Log line format on standard error.
+    #[arg(long, value_enum, default_value_t = LogFormat::Text)]
+    pub log_format: LogFormat,
+    /// Create output files and folders readable by the owner's group (0640/0750).
+    #[arg(long)]
+    pub group_readable: bool,
 }
 
 fn exit_codes_help() -> String {

@@ -19,6 +19,10 @@ fn main() -> ExitCode {
             init_logging(args.quiet, args.log_format);
             cohortpress::runner::run_command(&args, today())
         }
+        Command::Merge(args) => {
+            init_logging(args.quiet, args.log_format);
+            cohortpress::shard::merge_command(&args)
+        }
         Command::Modules { program } => cohortpress::runner::modules_command(program.as_deref()),
         Command::Templates {
             action: TemplatesAction::Dump { dir },

@@ -39,7 +39,7 @@ fn io(path: &Path) -> impl FnOnce(std::io::Error) -> StagingError + '_ {
 }
 
 /// One file written into staging.
-#[derive(Debug, Clone, Serialize, PartialEq, Eq, PartialOrd, Ord)]
+#[derive(Debug, Clone, Serialize, serde::Deserialize, PartialEq, Eq, PartialOrd, Ord)]
 pub struct OutputFile {
     /// Path relative to the output folder.
     pub path: String,
@@ -49,8 +49,37 @@ pub struct OutputFile {
     pub bytes: u64,
 }
 
+/// Who may read the outputs. Reports hold health data, so the default is the owner alone.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub enum Access {
+    /// Folders 0700, files 0600 (the default).
+    #[default]
+    Owner,
+    /// Folders 0750, files 0640 (`--group-readable`): the owner's group may read.
+    Group,
+}
+
+impl Access {
+    /// Unix mode of folders.
+    pub fn dir_mode(self) -> u32 {
+        match self {
+            Access::Owner => 0o700,
+            Access::Group => 0o750,
+        }
+    }
+
+    /// Unix mode of files.
+    pub fn file_mode(self) -> u32 {
+        match self {
+            Access::Owner => 0o600,
+            Access::Group => 0o640,
+        }
+    }
+}
+
 /// A staging folder being filled; [`Staging::commit`] swaps it into place.
 pub struct Staging {
+    access: Access,
     final_dir: PathBuf,
     dir: PathBuf,
     previous: PathBuf,
@@ -66,8 +95,13 @@ pub struct OutputSet {
 }
 
 impl Staging {
-    /// Takes the lock for `out_dir` and prepares an empty staging folder beside it.
+    /// Takes the lock for `out_dir` and prepares an empty owner-only staging folder beside it.
     pub fn begin(out_dir: &Path) -> Result<Staging, StagingError> {
+        Self::begin_with(out_dir, Access::Owner)
+    }
+
+    /// [`Staging::begin`] with the given access for everything it creates.
+    pub fn begin_with(out_dir: &Path, access: Access) -> Result<Staging, StagingError> {
         let name = out_dir
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
@@ -108,8 +142,9 @@ impl Staging {
         if dir.exists() {
             fs::remove_dir_all(&dir).map_err(io(&dir))?;
         }
-        create_private_dir(&dir)?;
+        create_dir(&dir, access)?;
         Ok(Staging {
+            access,
             final_dir: out_dir.to_path_buf(),
             dir,
             previous,
@@ -120,18 +155,29 @@ impl Staging {
 
     /// Writes `bytes` to `rel` (a relative path with `/`) inside staging. Safe to call from
     /// several threads.
-    pub fn write(&self, rel: &str, bytes: &[u8]) -> Result<(), StagingError> {
-        debug_assert!(
-            !rel.contains(".."),
-            "output paths are built from checked ids"
-        );
-        let path = self.dir.join(rel);
-        if let Some(p) = path.parent() {
-            if !p.exists() {
-                create_private_dir(p)?;
-            }
+    pub fn write(&self, rel: &str, bytes: &[u8]) -> Result<OutputFile, StagingError> {
+        // Output paths are built from checked ids; refuse anything that could leave the
+        // staging folder all the same (defence in depth: a file name comes from user data).
+        let safe = !rel.is_empty()
+            && rel.split('/').all(|c| {
+                !c.is_empty() && c != "." && c != ".." && !c.contains('\\') && !c.contains('\0')
+            });
+        if !safe {
+            return Err(StagingError::Io {
+                path: rel.to_string(),
+                source: std::io::Error::new(
+                    std::io::ErrorKind::InvalidInput,
+                    "refusing an output path that is not a plain relative path",
+                ),
+            });
         }
-        let mut f = private_file(&path)?;
+        let path = self.dir.join(rel);
+        if let Some(p) = path.parent()
+            && !p.exists()
+        {
+            create_dir(p, self.access)?;
+        }
+        let mut f = new_file(&path, self.access)?;
         f.write_all(bytes).map_err(io(&path))?;
         let entry = OutputFile {
             path: rel.to_string(),
@@ -141,8 +187,14 @@ impl Staging {
         self.written
             .lock()
             .expect("no panics while holding the lock")
-            .push(entry);
-        Ok(())
+            .push(entry.clone());
+        Ok(entry)
+    }
+
+    /// The output folder this staging folder will replace (its current content is the
+    /// previous complete output, if any).
+    pub fn final_dir(&self) -> &Path {
+        &self.final_dir
     }
 
     /// The files written so far, sorted by path.
@@ -180,33 +232,33 @@ fn sync_dir(dir: &Path) {
 }
 
 #[cfg(unix)]
-fn create_private_dir(p: &Path) -> Result<(), StagingError> {
+fn create_dir(p: &Path, access: Access) -> Result<(), StagingError> {
     use std::os::unix::fs::DirBuilderExt;
     fs::DirBuilder::new()
         .recursive(true)
-        .mode(0o700)
+        .mode(access.dir_mode())
         .create(p)
         .map_err(io(p))
 }
 
 #[cfg(not(unix))]
-fn create_private_dir(p: &Path) -> Result<(), StagingError> {
+fn create_dir(p: &Path, _access: Access) -> Result<(), StagingError> {
     fs::create_dir_all(p).map_err(io(p))
 }
 
 #[cfg(unix)]
-fn private_file(p: &Path) -> Result<File, StagingError> {
+fn new_file(p: &Path, access: Access) -> Result<File, StagingError> {
     use std::os::unix::fs::OpenOptionsExt;
     File::options()
         .write(true)
         .create_new(true)
-        .mode(0o600)
+        .mode(access.file_mode())
         .open(p)
         .map_err(io(p))
 }
 
 #[cfg(not(unix))]
-fn private_file(p: &Path) -> Result<File, StagingError> {
+fn new_file(p: &Path, _access: Access) -> Result<File, StagingError> {
     File::options()
         .write(true)
         .create_new(true)

@@ -4,16 +4,27 @@
 //! Outputs are written into a staging folder beside the output folder and moved into place only
 //! when complete, so a run killed at any moment leaves the previous complete output intact (see
 //! [`crate::output`]).
+//!
+//! Participants are streamed: each worker loads one participant, runs the modules, renders and
+//! writes their reports, and keeps only their partial result ([`ParticipantRecord`]: the group
+//! step's summary row, the tidy row, diagnostics and file hashes). Report bytes are dropped as
+//! soon as they are written, so memory grows with the summary rows only. The partial results
+//! are written to `cache/ID.json`, which `--incremental` and `merge` read back
+//! ([`crate::partial`], [`crate::shard`]).
 
-use crate::cli::{FormatArg, RunArgs};
+use crate::cli::{FormatArg, MergeArgs, RunArgs};
 use crate::diag::{Diagnostic, Severity};
 use crate::exit_code;
 use crate::group::{self, GroupOptions, ParticipantSummary};
 use crate::modules::{self, ModuleResults, ModuleSet};
-use crate::output::{OutputSet, Staging};
+use crate::output::{Access, OutputSet, Staging, StagingError};
+use crate::partial::{
+    self, DiagRecord, InputRecord, ParticipantRecord, RunKey, SummaryRecord, TidyRecord,
+};
 use crate::participant::{self, InputFile, ParticipantDir};
 use crate::program::{self, DefaultPeriod, Format, Program};
 use crate::report;
+use crate::shard::{self, ShardFile, ShardSpec};
 use crate::tidy::{self, TidyParticipant};
 use chrono::{Datelike, NaiveDate};
 use cohortpress_metric_api::{ParticipantData, Period};
@@ -39,22 +50,28 @@ pub struct RunPlan {
     pub only: Vec<String>,
     /// Worker threads.
     pub jobs: usize,
+    /// Reuse unchanged participants' previous results (`--incremental`).
+    pub incremental: bool,
+    /// Process only this shard (`--shard K/N`).
+    pub shard: Option<ShardSpec>,
+    /// Who may read the outputs.
+    pub access: Access,
+    /// What the results depend on besides each participant's own files.
+    pub key: RunKey,
 }
 
-/// What happened to one participant.
-pub struct ParticipantOutcome {
-    /// Participant id (folder name).
-    pub id: String,
-    /// Loader diagnostics.
-    pub diagnostics: Vec<Diagnostic>,
-    /// Module failures, as (module, message).
-    pub failures: Vec<(String, String)>,
-    /// Files read.
-    pub files: Vec<InputFile>,
-    /// The de-identified summary for the group step (`None` when the participant was unusable).
-    pub summary: Option<ParticipantSummary>,
-    /// Tidy metrics row and weekly series (`None` when unusable).
-    pub tidy: Option<TidyParticipant>,
+/// Seconds spent in each phase of a run, reported in the log only (never in an output file, so
+/// identical runs keep identical outputs).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Timing {
+    /// Loading, modules and participant reports (all workers).
+    pub participants_s: f64,
+    /// Group statistics and group reports.
+    pub group_s: f64,
+    /// Tidy metrics files.
+    pub tidy_s: f64,
+    /// Manifest and the swap into place.
+    pub commit_s: f64,
 }
 
 /// `cohortpress run`.
@@ -69,8 +86,18 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
             return code;
         }
     };
+    let plan_s = started.elapsed().as_secs_f64();
     match execute(&plan) {
-        Ok(summary) => {
+        Ok((summary, timing)) => {
+            let ms = |s: f64| (s * 1000.0).round() / 1000.0;
+            tracing::info!(
+                plan_s = ms(plan_s),
+                participants_s = ms(timing.participants_s),
+                group_s = ms(timing.group_s),
+                tidy_s = ms(timing.tidy_s),
+                commit_s = ms(timing.commit_s),
+                "timing in seconds per phase"
+            );
             tracing::info!(
                 "done in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
                 started.elapsed().as_secs_f64(),
@@ -116,22 +143,38 @@ fn usage(message: String) -> PlanError {
     )
 }
 
-/// Resolves the plan: loads and checks the program and its modules, the period and the output
-/// folder.
-pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanError> {
-    let program =
-        program::load_program(&args.program).map_err(|d| (exit_code::PROGRAM_INVALID, d))?;
+/// Loads and checks the program (refusing an oversized `program.yaml` before reading it) and
+/// its modules.
+fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
+    let file = root.join(program::load::PROGRAM_FILE);
+    if let Err(m) = crate::limits::check_size(&file) {
+        return Err((
+            exit_code::PROGRAM_INVALID,
+            vec![Diagnostic::error(program::load::PROGRAM_FILE, m)],
+        ));
+    }
+    let program = program::load_program(root).map_err(|d| (exit_code::PROGRAM_INVALID, d))?;
     let (modules, warnings) =
         modules::build_module_set(&program).map_err(|d| (exit_code::PROGRAM_INVALID, d))?;
     for w in &warnings {
         tracing::warn!("{w}");
     }
+    Ok((program, modules))
+}
+
+/// Resolves the plan: loads and checks the program and its modules, the period and the output
+/// folder.
+pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanError> {
+    let (program, modules) = load_checked(&args.program)?;
     let as_of = args.as_of.unwrap_or(today);
     let period = resolve_period(&program, as_of, args).map_err(usage)?;
-    let out_dir = match &args.out {
+    let mut out_dir = match &args.out {
         Some(o) => o.clone(),
         None => program.root.join(&program.def.report.out),
     };
+    if let (Some(s), None) = (args.shard, &args.out) {
+        out_dir = shard::default_shard_out(&out_dir, s);
+    }
     let formats = if args.formats.is_empty() {
         let mut f = program.def.report.formats.clone();
         f.sort();
@@ -158,6 +201,7 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
     if jobs == 0 {
         return Err(usage("--jobs must be at least 1".into()));
     }
+    let key = run_key(&program, &modules, period, as_of, &formats)?;
     Ok(RunPlan {
         program,
         modules,
@@ -167,6 +211,116 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
         formats,
         only: args.only.clone(),
         jobs,
+        incremental: args.incremental,
+        shard: args.shard,
+        access: shard::access(args.group_readable),
+        key,
+    })
+}
+
+/// The plan of `merge`: the program from the command line; period, as-of date and formats from
+/// the shards' run key (the caller checks the recomputed key equals the shards').
+pub fn plan_for_merge(
+    args: &MergeArgs,
+    key: &RunKey,
+    only: Vec<String>,
+) -> Result<RunPlan, PlanError> {
+    let (program, modules) = load_checked(&args.program)?;
+    let date = |s: &str| {
+        s.parse::<NaiveDate>()
+            .map_err(|_| usage(format!("shard.json holds an unreadable date `{s}`")))
+    };
+    let period = Period {
+        from: date(&key.period_from)?,
+        to: date(&key.period_to)?,
+    };
+    let as_of = date(&key.as_of)?;
+    let mut formats = Vec::new();
+    for f in &key.formats {
+        formats.push(match f.as_str() {
+            "html" => Format::Html,
+            "pdf" => Format::Pdf,
+            other => {
+                return Err(usage(format!(
+                    "shard.json names an unknown format `{other}`"
+                )));
+            }
+        });
+    }
+    let out_dir = match &args.out {
+        Some(o) => o.clone(),
+        None => program.root.join(&program.def.report.out),
+    };
+    let key = run_key(&program, &modules, period, as_of, &formats)?;
+    Ok(RunPlan {
+        program,
+        modules,
+        period,
+        as_of,
+        out_dir,
+        formats,
+        only,
+        jobs: 1,
+        incremental: false,
+        shard: None,
+        access: shard::access(args.group_readable),
+        key,
+    })
+}
+
+fn format_name(f: &Format) -> String {
+    format!("{f:?}").to_lowercase()
+}
+
+/// The run key: hashes of `program.yaml` and the template folder, the modules' settings,
+/// period, as-of date, formats and tool version.
+pub fn run_key(
+    program: &Program,
+    modules: &ModuleSet,
+    period: Period,
+    as_of: NaiveDate,
+    formats: &[Format],
+) -> Result<RunKey, PlanError> {
+    let read = |p: &Path| {
+        crate::limits::read_input(p).map_err(|e| {
+            (
+                exit_code::PROGRAM_INVALID,
+                vec![Diagnostic::error(
+                    p.display().to_string(),
+                    format!("cannot read ({e})"),
+                )],
+            )
+        })
+    };
+    let program_yaml = blake3::hash(&read(&program.root.join(program::load::PROGRAM_FILE))?)
+        .to_hex()
+        .to_string();
+    let templates = match &program.def.report.templates {
+        None => "built-in".to_string(),
+        Some(t) => {
+            let dir = program.root.join(t);
+            let mut h = blake3::Hasher::new();
+            for entry in walkdir::WalkDir::new(&dir).sort_by_file_name() {
+                let Ok(entry) = entry else { continue };
+                if entry.file_type().is_file() {
+                    let rel = entry.path().strip_prefix(&dir).unwrap_or(entry.path());
+                    h.update(rel.to_string_lossy().as_bytes());
+                    h.update(&[0]);
+                    h.update(blake3::hash(&read(entry.path())?).as_bytes());
+                }
+            }
+            h.finalize().to_hex().to_string()
+        }
+    };
+    Ok(RunKey {
+        tool: format!("cohortpress {}", env!("CARGO_PKG_VERSION")),
+        program_yaml,
+        templates,
+        modules: modules.settings_fingerprint(),
+        period_from: period.from.to_string(),
+        period_to: period.to.to_string(),
+        as_of: as_of.to_string(),
+        formats: formats.iter().map(format_name).collect(),
     })
 }
 
@@ -295,15 +449,17 @@ impl RunError {
     }
 }
 
-/// Executes a plan: every participant, the group step, all outputs.
-pub fn execute(plan: &RunPlan) -> Result<RunSummary, RunError> {
-    let staging = Staging::begin(&plan.out_dir).map_err(|e| match e {
-        crate::output::StagingError::Locked(m) => RunError::Locked(m),
-        other => RunError::Output(other.to_string()),
-    })?;
-    let templates = report::templates::TemplateSet::load(&plan.program)
-        .map_err(|e| RunError::Render(e.to_string()))?;
+impl From<StagingError> for RunError {
+    fn from(e: StagingError) -> Self {
+        match e {
+            StagingError::Locked(m) => RunError::Locked(m),
+            other => RunError::Output(other.to_string()),
+        }
+    }
+}
 
+/// The participant folders a plan covers: discovery, then `--only`, then `--shard`.
+pub fn select_participants(plan: &RunPlan) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
     let (mut dirs, discovery) = participant::discover(&plan.program);
     if !plan.only.is_empty() {
         let unknown: Vec<&String> = plan
@@ -316,10 +472,27 @@ pub fn execute(plan: &RunPlan) -> Result<RunSummary, RunError> {
         }
         dirs.retain(|d| plan.only.contains(&d.id));
     }
+    if let Some(s) = plan.shard {
+        dirs.retain(|d| s.contains(&d.id));
+    }
+    (dirs, discovery)
+}
+
+/// Executes a plan: every participant, then (unless it is a shard) the group step and all
+/// outputs.
+pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
+    let staging = Staging::begin_with(&plan.out_dir, plan.access)?;
+    let templates = report::templates::TemplateSet::load(&plan.program)
+        .map_err(|e| RunError::Render(e.to_string()))?;
+
+    let (dirs, discovery) = select_participants(plan);
     tracing::info!(
-        "program {}: {} participants, period {} to {}, as of {}",
+        "program {}: {} participants{}, period {} to {}, as of {}",
         plan.program.info.id,
         dirs.len(),
+        plan.shard
+            .map(|s| format!(" in shard {s}"))
+            .unwrap_or_default(),
         plan.period.from,
         plan.period.to,
         plan.as_of
@@ -329,58 +502,115 @@ pub fn execute(plan: &RunPlan) -> Result<RunSummary, RunError> {
         .num_threads(plan.jobs)
         .build()
         .map_err(|e| RunError::Output(format!("cannot start worker threads: {e}")))?;
+    let key_hash = plan.key.hash();
+    let phase = Instant::now();
     let progress = crate::progress::Progress::new(dirs.len() as u64);
-    let results: Vec<Result<ParticipantOutcome, RunError>> = pool.install(|| {
+    let results: Vec<Result<(ParticipantRecord, bool), RunError>> = pool.install(|| {
         dirs.par_iter()
             .map(|dir| {
-                let r = process_participant(plan, &templates, &staging, dir);
+                let reused = if plan.incremental {
+                    reuse_participant(plan, &key_hash, &staging, dir)?
+                } else {
+                    None
+                };
+                let r = match reused {
+                    Some(rec) => (rec, true),
+                    None => (
+                        process_participant(plan, &key_hash, &templates, &staging, dir)?,
+                        false,
+                    ),
+                };
                 progress.tick();
-                r
+                Ok(r)
             })
             .collect()
     });
     progress.finish();
-
-    let mut outcomes = Vec::with_capacity(results.len());
+    let mut records = Vec::with_capacity(results.len());
+    let mut reused = 0usize;
     for r in results {
-        outcomes.push(r?);
+        let (rec, was_reused) = r?;
+        reused += usize::from(was_reused);
+        records.push(rec);
+    }
+    let participants_s = phase.elapsed().as_secs_f64();
+    if plan.incremental {
+        tracing::info!(
+            "incremental: {} participants reused, {} recomputed",
+            reused,
+            records.len() - reused
+        );
     }
 
+    if let Some(s) = plan.shard {
+        let (summary, _, _, _, _) = tally(&discovery, &records);
+        let file = ShardFile {
+            format: shard::FORMAT,
+            shard: s.index,
+            of: s.count,
+            program_id: plan.program.info.id.clone(),
+            key: plan.key.clone(),
+            only: plan.only.clone(),
+            discovery: discovery.iter().map(DiagRecord::from_diagnostic).collect(),
+            participants: records.iter().map(|r| r.id.clone()).collect(),
+        };
+        let phase = Instant::now();
+        staging.write(shard::SHARD_FILE, &file.to_bytes())?;
+        staging.commit()?;
+        let timing = Timing {
+            participants_s,
+            commit_s: phase.elapsed().as_secs_f64(),
+            ..Default::default()
+        };
+        return Ok((summary, timing));
+    }
+    let (summary, mut timing) = finish(plan, &templates, staging, &discovery, &records)?;
+    timing.participants_s = participants_s;
+    Ok((summary, timing))
+}
+
+/// Totals, every diagnostic, the group step's rows, the tidy rows and the input files of a set
+/// of participant records (in id order).
+fn tally(
+    discovery: &[Diagnostic],
+    records: &[ParticipantRecord],
+) -> (
+    RunSummary,
+    Vec<Diagnostic>,
+    Vec<ParticipantSummary>,
+    Vec<TidyParticipant>,
+    Vec<InputFile>,
+) {
     let mut summary = RunSummary {
-        participants: dirs.len(),
+        participants: records.len(),
+        program_warnings: discovery.len(),
         ..Default::default()
     };
-    summary.program_warnings = discovery.len();
-    let mut all_diags: Vec<Diagnostic> = discovery.clone();
+    let mut all_diags: Vec<Diagnostic> = discovery.to_vec();
     let mut rows = Vec::new();
     let mut tidy_rows = Vec::new();
     let mut inputs: Vec<InputFile> = Vec::new();
-    for o in &outcomes {
-        let errors = o
-            .diagnostics
-            .iter()
-            .filter(|d| d.severity == Severity::Error)
-            .count();
-        if errors > 0 {
+    for r in records {
+        let diags = r.diagnostics();
+        if diags.iter().any(|d| d.severity == Severity::Error) {
             summary.participants_with_errors += 1;
         }
-        summary.warnings += o
-            .diagnostics
+        summary.warnings += diags
             .iter()
             .filter(|d| d.severity == Severity::Warning)
             .count();
-        summary.module_failures += o.failures.len();
-        for (m, msg) in &o.failures {
-            tracing::warn!("{}: module {m} failed: {msg}", o.id);
+        summary.module_failures += r.failures.len();
+        for (m, msg) in &r.failures {
+            tracing::warn!("{}: module {m} failed: {msg}", r.id);
         }
-        all_diags.extend(o.diagnostics.iter().cloned());
-        inputs.extend(o.files.iter().cloned());
-        if let Some(s) = &o.summary {
-            rows.push(s.clone());
+        all_diags.extend(diags);
+        inputs.extend(r.input_files());
+        if let Some(s) = &r.summary {
+            rows.push(s.to_summary());
         }
-        if let Some(t) = &o.tidy {
+        if let Some(t) = &r.tidy {
             summary.reported += 1;
-            tidy_rows.push(t);
+            tidy_rows.push(t.to_tidy());
         }
     }
     for d in &all_diags {
@@ -389,8 +619,25 @@ pub fn execute(plan: &RunPlan) -> Result<RunSummary, RunError> {
             Severity::Warning => tracing::debug!("{}", d.to_string().replace('\n', " |")),
         }
     }
+    inputs.sort_by(|a, b| a.path.cmp(&b.path));
+    (summary, all_diags, rows, tidy_rows, inputs)
+}
+
+/// The group step, group reports, tidy metrics and manifest from every participant's record
+/// (sorted by id), then the swap into place. Shared by `run` and `merge`, which is why a
+/// merged output equals a single run's.
+pub fn finish(
+    plan: &RunPlan,
+    templates: &report::templates::TemplateSet,
+    staging: Staging,
+    discovery: &[Diagnostic],
+    records: &[ParticipantRecord],
+) -> Result<(RunSummary, Timing), RunError> {
+    let mut timing = Timing::default();
+    let (summary, all_diags, rows, tidy_rows, inputs) = tally(discovery, records);
 
     // Group step and group reports.
+    let phase = Instant::now();
     let opts = GroupOptions {
         min_cell_size: plan.program.def.privacy.min_cell_size,
         group_by: plan.program.def.report.group_by.clone(),
@@ -398,77 +645,143 @@ pub fn execute(plan: &RunPlan) -> Result<RunSummary, RunError> {
     };
     let group = group::summarize(&rows, &opts);
     let group_ctx = report::group_context(plan, &group, &summary);
-    let group_files = report::render_group(&templates, &group_ctx, &plan.formats)
+    let group_files = report::render_group(templates, &group_ctx, &plan.formats)
         .map_err(|e| RunError::Render(e.to_string()))?;
     for (name, bytes) in group_files {
-        staging
-            .write(&format!("group/{name}"), &bytes)
-            .map_err(|e| RunError::Output(e.to_string()))?;
+        staging.write(&format!("group/{name}"), &bytes)?;
     }
+    timing.group_s = phase.elapsed().as_secs_f64();
 
     // Tidy metrics.
-    let tidy_files = tidy::render(plan, &tidy_rows, &all_diags, &group)
+    let phase = Instant::now();
+    let tidy_refs: Vec<&TidyParticipant> = tidy_rows.iter().collect();
+    let tidy_files = tidy::render(plan, &tidy_refs, &all_diags, &group)
         .map_err(|e| RunError::Output(e.to_string()))?;
     for (name, bytes) in tidy_files {
-        staging
-            .write(&name, &bytes)
-            .map_err(|e| RunError::Output(e.to_string()))?;
+        staging.write(&name, &bytes)?;
     }
+    timing.tidy_s = phase.elapsed().as_secs_f64();
 
     // Manifest last: it lists every other output.
-    inputs.sort_by(|a, b| a.path.cmp(&b.path));
+    let phase = Instant::now();
     let manifest = crate::output::manifest(plan, &inputs, &staging, &summary)
         .map_err(|e| RunError::Output(e.to_string()))?;
-    staging
-        .write("manifest.json", &manifest)
-        .map_err(|e| RunError::Output(e.to_string()))?;
-    let outputs: OutputSet = staging
-        .commit()
-        .map_err(|e| RunError::Output(e.to_string()))?;
+    staging.write("manifest.json", &manifest)?;
+    let outputs: OutputSet = staging.commit()?;
+    timing.commit_s = phase.elapsed().as_secs_f64();
     tracing::debug!("{} output files", outputs.files);
-    Ok(summary)
+    Ok((summary, timing))
 }
 
-/// Load → modules → participant report → written into staging; returns what the group step and
-/// the tidy files need. A participant's own problems never fail the run: only an output write
-/// or template failure does.
+/// Names of every entry of a participant folder, sorted.
+fn listing(dir: &ParticipantDir) -> Vec<String> {
+    let mut names: Vec<String> = std::fs::read_dir(&dir.path)
+        .map(|rd| {
+            rd.filter_map(|e| e.ok())
+                .map(|e| e.file_name().to_string_lossy().into_owned())
+                .collect()
+        })
+        .unwrap_or_default();
+    names.sort();
+    names
+}
+
+/// `--incremental`: the participant's previous record and reports, copied into staging, when
+/// nothing they depend on changed: the run key, the folder listing and every input file's
+/// hash, and the previous report files are intact. `None` means recompute.
+fn reuse_participant(
+    plan: &RunPlan,
+    key_hash: &str,
+    staging: &Staging,
+    dir: &ParticipantDir,
+) -> Result<Option<ParticipantRecord>, RunError> {
+    let prev = staging.final_dir();
+    let rel = partial::cache_path(&dir.id);
+    let Ok(bytes) = std::fs::read(prev.join(&rel)) else {
+        return Ok(None);
+    };
+    let Some(rec) = ParticipantRecord::from_bytes(&bytes) else {
+        return Ok(None);
+    };
+    if rec.id != dir.id || rec.run_key != key_hash || rec.listing != listing(dir) {
+        return Ok(None);
+    }
+    for f in &rec.files {
+        match crate::limits::read_input(&plan.program.root.join(&f.path)) {
+            Ok(b) if blake3::hash(&b).to_hex().as_str() == f.blake3 => {}
+            _ => return Ok(None),
+        }
+    }
+    let mut reports = Vec::with_capacity(rec.reports.len());
+    for r in &rec.reports {
+        match std::fs::read(prev.join(&r.path)) {
+            Ok(b) if blake3::hash(&b).to_hex().as_str() == r.blake3 => reports.push(b),
+            _ => return Ok(None),
+        }
+    }
+    for (r, b) in rec.reports.iter().zip(&reports) {
+        staging.write(&r.path, b)?;
+    }
+    staging.write(&rel, &bytes)?;
+    Ok(Some(rec))
+}
+
+/// Load → modules → participant report → written into staging, with the participant's
+/// record (also written, as `cache/ID.json`). A participant's own problems never fail the run:
+/// only an output write or template failure does.
 fn process_participant(
     plan: &RunPlan,
+    key_hash: &str,
     templates: &report::templates::TemplateSet,
     staging: &Staging,
     dir: &ParticipantDir,
-) -> Result<ParticipantOutcome, RunError> {
+) -> Result<ParticipantRecord, RunError> {
+    let names = listing(dir);
     let loaded = participant::load_participant(&plan.program, dir, plan.as_of);
-    let mut outcome = ParticipantOutcome {
+    let mut rec = ParticipantRecord {
+        format: partial::FORMAT,
         id: loaded.id.clone(),
-        diagnostics: loaded.diagnostics,
+        run_key: key_hash.to_string(),
+        listing: names,
+        files: loaded.files.iter().map(InputRecord::from_input).collect(),
+        diagnostics: loaded
+            .diagnostics
+            .iter()
+            .map(DiagRecord::from_diagnostic)
+            .collect(),
         failures: Vec::new(),
-        files: loaded.files,
+        reports: Vec::new(),
         summary: None,
         tidy: None,
     };
-    let Some(data) = loaded.data else {
-        return Ok(outcome);
-    };
-    let results: ModuleResults =
-        plan.modules
-            .run(&plan.program.info, plan.period, plan.as_of, &data);
-    outcome.failures = results
-        .failures
-        .iter()
-        .map(|f| (f.module.clone(), f.message.clone()))
-        .collect();
-    let ctx = report::participant_context(plan, &data, &results, &outcome.diagnostics);
-    let files = report::render_participant(templates, &ctx, &plan.formats)
-        .map_err(|e| RunError::Render(format!("participant {}: {e}", data.profile.id)))?;
-    for (ext, bytes) in files {
-        staging
-            .write(&format!("participants/{}.{ext}", data.profile.id), &bytes)
-            .map_err(|e| RunError::Output(e.to_string()))?;
+    if let Some(data) = loaded.data {
+        let results: ModuleResults =
+            plan.modules
+                .run(&plan.program.info, plan.period, plan.as_of, &data);
+        rec.failures = results
+            .failures
+            .iter()
+            .map(|f| (f.module.clone(), f.message.clone()))
+            .collect();
+        let ctx = report::participant_context(plan, &data, &results, &loaded.diagnostics);
+        let files = report::render_participant(templates, &ctx, &plan.formats)
+            .map_err(|e| RunError::Render(format!("participant {}: {e}", data.profile.id)))?;
+        // Each report is written and dropped at once: no report bytes outlive this loop.
+        for (ext, bytes) in files {
+            let written =
+                staging.write(&format!("participants/{}.{ext}", data.profile.id), &bytes)?;
+            rec.reports.push(written);
+        }
+        rec.reports.sort();
+        rec.summary = Some(SummaryRecord::from_summary(&summary_row(
+            plan, &data, &results,
+        )));
+        rec.tidy = Some(TidyRecord::from_tidy(&tidy::participant(
+            plan, &data, &results,
+        )));
     }
-    outcome.summary = Some(summary_row(plan, &data, &results));
-    outcome.tidy = Some(tidy::participant(plan, &data, &results));
-    Ok(outcome)
+    staging.write(&partial::cache_path(&rec.id), &rec.to_bytes())?;
+    Ok(rec)
 }
 
 /// The de-identified summary row of one participant for the group step.

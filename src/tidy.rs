@@ -5,7 +5,7 @@ use crate::diag::Diagnostic;
 use crate::group::GroupReport;
 use crate::modules::ModuleResults;
 use crate::runner::RunPlan;
-use cohortpress_metric_api::{Flag, ParticipantData, Scalar, Series, TextValue};
+use cohortpress_metric_api::{Flag, ParticipantData, Scalar, TextValue};
 use serde::Serialize;
 use std::collections::BTreeMap;
 
@@ -20,9 +20,10 @@ pub struct TidyParticipant {
     pub scalars: Vec<(String, Scalar)>,
     /// Texts by module.
     pub texts: Vec<(String, TextValue)>,
-    /// Weekly series by module.
+    /// Rows of `metrics/weekly.csv` (participant, module, series, unit, week start, value,
+    /// lower, upper), rendered once so a stored partial result reproduces them exactly.
     #[serde(skip)]
-    pub weekly: Vec<(String, Series)>,
+    pub weekly_rows: Vec<[String; 8]>,
     /// Flags by module.
     pub flags: Vec<(String, Flag)>,
     /// Module failures (module, message).
@@ -40,7 +41,7 @@ pub fn participant(
         groups: data.profile.groups.clone(),
         scalars: Vec::new(),
         texts: Vec::new(),
-        weekly: Vec::new(),
+        weekly_rows: Vec::new(),
         flags: Vec::new(),
         failures: results
             .failures
@@ -53,12 +54,20 @@ pub fn participant(
             .extend(out.scalars.iter().map(|s| (module.clone(), s.clone())));
         t.texts
             .extend(out.texts.iter().map(|s| (module.clone(), s.clone())));
-        t.weekly.extend(
-            out.series
-                .iter()
-                .filter(|s| s.step == "weekly")
-                .map(|s| (module.clone(), s.clone())),
-        );
+        for s in out.series.iter().filter(|s| s.step == "weekly") {
+            t.weekly_rows.extend(s.points.iter().map(|p| {
+                [
+                    data.profile.id.clone(),
+                    module.clone(),
+                    s.name.clone(),
+                    s.unit.clone(),
+                    p.date.to_string(),
+                    num(Some(p.value)),
+                    num(p.lower),
+                    num(p.upper),
+                ]
+            }));
+        }
         t.flags
             .extend(out.flags.iter().map(|s| (module.clone(), s.clone())));
     }
@@ -212,19 +221,8 @@ pub fn render(
         "upper95",
     ])?;
     for r in &rows {
-        for (m, s) in &r.weekly {
-            for p in &s.points {
-                w.write_record([
-                    r.participant_id.as_str(),
-                    m,
-                    &s.name,
-                    &s.unit,
-                    &p.date.to_string(),
-                    &num(Some(p.value)),
-                    &num(p.lower),
-                    &num(p.upper),
-                ])?;
-            }
+        for row in &r.weekly_rows {
+            w.write_record(row)?;
         }
     }
     files.push(("metrics/weekly.csv".to_string(), w.into_inner()?));

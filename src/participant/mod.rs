@@ -11,7 +11,7 @@ pub mod table;
 
 use crate::diag::{Diagnostic, Severity};
 use crate::program::Program;
-use crate::program::load::{decode_utf8, is_plain_id, read_bytes};
+use crate::program::load::{decode_utf8, is_plain_id};
 use chrono::NaiveDate;
 use cohortpress_metric_api::ParticipantData;
 use records::Window;
@@ -174,7 +174,8 @@ fn read_input(
         diags.push(ctx.error(format!("`{name}` is not a file; it cannot be read")));
         return Some(Err(()));
     }
-    let bytes = match read_bytes(&path) {
+    // Size-limited read (crate::limits): an oversized file is refused before it is read.
+    let bytes = match crate::limits::read_input(&path) {
         Ok(b) => b,
         Err(e) => {
             diags.push(ctx.error(format!("cannot read the file ({e})")));

@@ -1,0 +1,340 @@
+//! Shards: `run --shard K/N` processes a stable subset of the participants, and `merge`
+//! combines the shards' outputs into the complete output.
+//!
+//! A participant belongs to shard `1 + h mod N`, where `h` is the first 8 bytes (little-endian)
+//! of the blake3 hash of their id. The assignment depends on the id alone, so adding or removing
+//! a participant never moves anybody else to another shard.
+//!
+//! A shard's output folder holds the participant reports of its participants, their partial
+//! results (`cache/ID.json`, see [`crate::partial`]) and `shard.json`, which names the shard,
+//! the run's [`RunKey`], the program-level diagnostics and the participants it processed.
+//! `merge` checks that the shards are 1…N of the same run, copies the reports and partial
+//! results, and then builds the group report, tidy metrics and manifest exactly as a single run
+//! does, so the merged folder equals a single run's byte for byte.
+
+use crate::cli::MergeArgs;
+use crate::diag::Diagnostic;
+use crate::exit_code;
+use crate::output::{Access, Staging};
+use crate::partial::{self, DiagRecord, ParticipantRecord, RunKey};
+use crate::runner::{self, RunError, RunPlan};
+use serde::{Deserialize, Serialize};
+use std::path::{Path, PathBuf};
+use std::str::FromStr;
+use std::time::Instant;
+
+/// Name of the shard description inside a shard's output folder.
+pub const SHARD_FILE: &str = "shard.json";
+/// Version of `shard.json`.
+pub const FORMAT: u32 = 1;
+/// Most shards a run may be split into.
+pub const MAX_SHARDS: u32 = 10_000;
+
+/// `K/N`: shard K (1-based) of N.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ShardSpec {
+    /// This shard, 1 ≤ index ≤ count.
+    pub index: u32,
+    /// Number of shards.
+    pub count: u32,
+}
+
+impl FromStr for ShardSpec {
+    type Err = String;
+
+    fn from_str(s: &str) -> Result<Self, String> {
+        let bad = || format!("expected K/N with 1 ≤ K ≤ N ≤ {MAX_SHARDS}, e.g. 2/8; found `{s}`");
+        let (k, n) = s.split_once('/').ok_or_else(bad)?;
+        let index: u32 = k.trim().parse().map_err(|_| bad())?;
+        let count: u32 = n.trim().parse().map_err(|_| bad())?;
+        if index == 0 || index > count || count > MAX_SHARDS {
+            return Err(bad());
+        }
+        Ok(ShardSpec { index, count })
+    }
+}
+
+impl std::fmt::Display for ShardSpec {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}/{}", self.index, self.count)
+    }
+}
+
+impl ShardSpec {
+    /// Whether participant `id` belongs to this shard.
+    pub fn contains(&self, id: &str) -> bool {
+        shard_of(id, self.count) == self.index
+    }
+}
+
+/// The shard (1-based) of participant `id` among `count` shards.
+pub fn shard_of(id: &str, count: u32) -> u32 {
+    let h = blake3::hash(id.as_bytes());
+    let mut first = [0u8; 8];
+    first.copy_from_slice(&h.as_bytes()[..8]);
+    (u64::from_le_bytes(first) % u64::from(count.max(1))) as u32 + 1
+}
+
+/// `shard.json`: what a shard run did.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ShardFile {
+    /// [`FORMAT`].
+    pub format: u32,
+    /// This shard, 1-based.
+    pub shard: u32,
+    /// Number of shards.
+    pub of: u32,
+    /// Program id.
+    pub program_id: String,
+    /// Everything the results depend on besides the participants' own files.
+    pub key: RunKey,
+    /// `--only` ids, if any (every shard must have the same).
+    pub only: Vec<String>,
+    /// Program-level diagnostics (participant discovery); the same in every shard.
+    pub discovery: Vec<DiagRecord>,
+    /// Ids of the participants processed, sorted.
+    pub participants: Vec<String>,
+}
+
+impl ShardFile {
+    /// JSON bytes as written (pretty, trailing newline).
+    pub fn to_bytes(&self) -> Vec<u8> {
+        let mut v = serde_json::to_vec_pretty(self).expect("a shard file serialises");
+        v.push(b'\n');
+        v
+    }
+}
+
+/// Default output folder of a shard: `OUT-shard-K-of-N` beside the program's output folder,
+/// so shards sharing a file system never write over each other.
+pub fn default_shard_out(out: &Path, shard: ShardSpec) -> PathBuf {
+    let name = out
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "reports".into());
+    out.with_file_name(format!("{name}-shard-{}-of-{}", shard.index, shard.count))
+}
+
+fn merge_error(message: String) -> (i32, Vec<Diagnostic>) {
+    (exit_code::USAGE, vec![Diagnostic::error("merge", message)])
+}
+
+/// Reads and checks every shard's `shard.json`: same run, same N, each of 1…N exactly once.
+fn read_shards(dirs: &[PathBuf]) -> Result<Vec<ShardFile>, (i32, Vec<Diagnostic>)> {
+    let mut shards = Vec::new();
+    for d in dirs {
+        let path = d.join(SHARD_FILE);
+        let bytes = std::fs::read(&path).map_err(|e| {
+            merge_error(format!(
+                "cannot read {} ({e}); give the output folders of `run --shard K/N`",
+                path.display()
+            ))
+        })?;
+        let s: ShardFile = serde_json::from_slice(&bytes).map_err(|e| {
+            merge_error(format!(
+                "{}: not a usable shard description ({e})",
+                path.display()
+            ))
+        })?;
+        if s.format != FORMAT {
+            return Err(merge_error(format!(
+                "{}: shard format {} (this cohortpress reads format {FORMAT})",
+                path.display(),
+                s.format
+            )));
+        }
+        shards.push(s);
+    }
+    let first = shards[0].clone();
+    for (s, d) in shards.iter().zip(dirs) {
+        if s.of != first.of || s.key != first.key || s.only != first.only {
+            return Err(merge_error(format!(
+                "{} is shard {}/{} of a different run than {} (shard {}/{}): program, settings, \
+                 period, as-of date, formats or tool version differ; run every shard with the \
+                 same options",
+                d.display(),
+                s.shard,
+                s.of,
+                dirs[0].display(),
+                first.shard,
+                first.of
+            )));
+        }
+        if s.discovery != first.discovery {
+            return Err(merge_error(format!(
+                "{} saw a different set of participant folders than {}; run every shard on the \
+                 same program folder",
+                d.display(),
+                dirs[0].display()
+            )));
+        }
+    }
+    let mut seen: Vec<u32> = shards.iter().map(|s| s.shard).collect();
+    seen.sort_unstable();
+    let expected: Vec<u32> = (1..=first.of).collect();
+    if seen != expected {
+        let missing: Vec<String> = expected
+            .iter()
+            .filter(|k| !seen.contains(k))
+            .map(|k| format!("{k}/{}", first.of))
+            .collect();
+        let mut dup: Vec<String> = seen
+            .windows(2)
+            .filter(|w| w[0] == w[1])
+            .map(|w| format!("{}/{}", w[0], first.of))
+            .collect();
+        dup.dedup();
+        return Err(merge_error(format!(
+            "every shard 1…{n} is needed exactly once; missing: [{}], given twice: [{}]",
+            missing.join(", "),
+            dup.join(", "),
+            n = first.of
+        )));
+    }
+    Ok(shards)
+}
+
+/// `cohortpress merge PROGRAM SHARD_DIR… [--out DIR]`.
+pub fn merge_command(args: &MergeArgs) -> i32 {
+    let started = Instant::now();
+    let fail = |(code, diags): (i32, Vec<Diagnostic>)| {
+        for d in &diags {
+            tracing::error!("{}", d.to_string().replace('\n', " |"));
+        }
+        code
+    };
+    let shards = match read_shards(&args.shards) {
+        Ok(s) => s,
+        Err(e) => return fail(e),
+    };
+    let key = shards[0].key.clone();
+    let plan = match runner::plan_for_merge(args, &key, shards[0].only.clone()) {
+        Ok(p) => p,
+        Err(e) => return fail(e),
+    };
+    if plan.key != key {
+        return fail(merge_error(
+            "the program folder changed since the shards ran (program.yaml, templates, modules \
+             or the cohortpress version differ); run the shards again"
+                .into(),
+        ));
+    }
+    match merge(&plan, &args.shards, &shards) {
+        Ok(summary) => {
+            tracing::info!(
+                "merged {} shards in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
+                shards.len(),
+                started.elapsed().as_secs_f64(),
+                summary.reported,
+                summary.participants_with_errors,
+                summary.module_failures,
+                summary.warnings,
+                plan.out_dir.display()
+            );
+            summary.exit_code()
+        }
+        Err(e) => {
+            tracing::error!("{e:#}");
+            e.exit_code()
+        }
+    }
+}
+
+fn merge(
+    plan: &RunPlan,
+    dirs: &[PathBuf],
+    shards: &[ShardFile],
+) -> Result<runner::RunSummary, RunError> {
+    let staging = Staging::begin_with(&plan.out_dir, plan.access).map_err(RunError::from)?;
+    let key_hash = plan.key.hash();
+    let mut records: Vec<ParticipantRecord> = Vec::new();
+    for (dir, shard) in dirs.iter().zip(shards) {
+        for id in &shard.participants {
+            let rel = partial::cache_path(id);
+            let bytes = std::fs::read(dir.join(&rel))
+                .map_err(|e| RunError::Output(format!("{}: {e}", dir.join(&rel).display())))?;
+            let rec = ParticipantRecord::from_bytes(&bytes)
+                .filter(|r| &r.id == id && r.run_key == key_hash)
+                .ok_or_else(|| {
+                    RunError::Output(format!(
+                        "{}: not a partial result of this run",
+                        dir.join(&rel).display()
+                    ))
+                })?;
+            for f in &rec.reports {
+                let b = std::fs::read(dir.join(&f.path)).map_err(|e| {
+                    RunError::Output(format!("{}: {e}", dir.join(&f.path).display()))
+                })?;
+                if blake3::hash(&b).to_hex().as_str() != f.blake3 {
+                    return Err(RunError::Output(format!(
+                        "{}: the file changed after its shard wrote it",
+                        dir.join(&f.path).display()
+                    )));
+                }
+                staging.write(&f.path, &b)?;
+            }
+            staging.write(&rel, &rec.to_bytes())?;
+            records.push(rec);
+        }
+    }
+    records.sort_by(|a, b| a.id.cmp(&b.id));
+    if let Some(w) = records.windows(2).find(|w| w[0].id == w[1].id) {
+        return Err(RunError::Output(format!(
+            "participant {} appears in two shards",
+            w[0].id
+        )));
+    }
+    let discovery: Vec<Diagnostic> = shards[0]
+        .discovery
+        .iter()
+        .map(DiagRecord::to_diagnostic)
+        .collect();
+    let templates = crate::report::templates::TemplateSet::load(&plan.program)
+        .map_err(|e| RunError::Render(e.to_string()))?;
+    let (summary, _timing) = runner::finish(plan, &templates, staging, &discovery, &records)?;
+    Ok(summary)
+}
+
+/// Access for the merged output.
+pub fn access(group_readable: bool) -> Access {
+    if group_readable {
+        Access::Group
+    } else {
+        Access::Owner
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn parses_k_of_n() {
+        assert_eq!(
+            "2/8".parse::<ShardSpec>().unwrap(),
+            ShardSpec { index: 2, count: 8 }
+        );
+        for bad in ["0/3", "4/3", "3", "a/b", "1/0", "1/10001"] {
+            assert!(bad.parse::<ShardSpec>().is_err(), "{bad}");
+        }
+    }
+
+    #[test]
+    fn assignment_is_stable_and_covers_every_shard() {
+        let ids: Vec<String> = (0..300).map(|i| format!("P-{i:04}")).collect();
+        let mut counts = [0usize; 3];
+        for id in &ids {
+            let k = shard_of(id, 3);
+            counts[k as usize - 1] += 1;
+            // Exactly one shard contains each id.
+            let owners = (1..=3)
+                .filter(|&i| ShardSpec { index: i, count: 3 }.contains(id))
+                .count();
+            assert_eq!(owners, 1);
+        }
+        // A hash spreads 300 ids roughly evenly: every shard gets a fair share.
+        assert!(counts.iter().all(|&c| c > 60), "{counts:?}");
+        // The assignment depends on the id alone.
+        assert_eq!(shard_of("P-0007", 3), shard_of("P-0007", 3));
+    }
+}
