@@ -1,0 +1,1 @@
+//! Hostile input through the real binary.

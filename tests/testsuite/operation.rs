@@ -1,0 +1,472 @@
+//! Unattended operation through the real binary: exit codes, a run killed with SIGKILL, the run
+//! lock, determinism (repeat runs, `--jobs`), cron-style JSON logs, `--incremental`, shards and
+//! `merge`, and the owner-only file modes.
+//!
+//! Programs are small generated demo programs (`cohortpress demo-program`), so the whole module
+//! stays fast in a debug build; only the kill and lock tests use a larger one, so that a run is
+//! still going when it is interrupted.
+
+use crate::harness::{Outcome, ProgramTest, tree_hashes};
+use std::path::{Path, PathBuf};
+use std::process::{Child, Command, Stdio};
+use std::time::{Duration, Instant};
+
+const AS_OF: &str = "2026-12-01";
+const BIN: &str = env!("CARGO_BIN_EXE_cohortpress");
+
+/// A fresh generated demo program of `n` participants (seed 2026), without planted defects.
+fn demo(n: usize) -> ProgramTest {
+    let scratch = tempfile::Builder::new()
+        .prefix("cohortpress-demo-")
+        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
+        .unwrap();
+    let dir = scratch.path().join("p");
+    let out = Command::new(BIN)
+        .args(["demo-program", dir.to_str().unwrap(), "--participants"])
+        .arg(n.to_string())
+        .arg("--no-defects")
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    ProgramTest::from_dir(&dir)
+}
+
+/// An output folder beside the program folder (outside it, so outputs never become inputs).
+fn out(t: &ProgramTest, name: &str) -> String {
+    t.dir
+        .parent()
+        .unwrap()
+        .join(name)
+        .to_string_lossy()
+        .into_owned()
+}
+
+/// `run {dir} --as-of AS_OF --out OUT EXTRA…`.
+fn run(t: &ProgramTest, out_dir: &str, extra: &[&str]) -> Outcome {
+    let mut args = vec!["run", "{dir}", "--as-of", AS_OF, "--out", out_dir];
+    args.extend_from_slice(extra);
+    t.run(&args)
+}
+
+/// Starts `run` as a child process with no terminal and standard input closed (as cron does).
+fn spawn_run(t: &ProgramTest, out_dir: &str, extra: &[&str]) -> Child {
+    Command::new(BIN)
+        .args([
+            "run",
+            t.dir.to_str().unwrap(),
+            "--as-of",
+            AS_OF,
+            "--out",
+            out_dir,
+        ])
+        .args(extra)
+        .current_dir(&t.dir)
+        .env_clear()
+        .env("PATH", std::env::var("PATH").unwrap_or_default())
+        .stdin(Stdio::null())
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap()
+}
+
+/// Files under `dir`, by relative path.
+fn count_files(dir: &Path) -> usize {
+    if !dir.exists() {
+        return 0;
+    }
+    walkdir::WalkDir::new(dir)
+        .into_iter()
+        .filter_map(|e| e.ok())
+        .filter(|e| e.file_type().is_file())
+        .count()
+}
+
+/// Waits (polling) until `dir` holds at least `n` files; panics if `child` ends first.
+fn wait_for_files(child: &mut Child, dir: &Path, n: usize) {
+    let deadline = Instant::now() + Duration::from_secs(120);
+    while count_files(dir) < n {
+        if let Some(status) = child.try_wait().unwrap() {
+            panic!(
+                "the run ended ({status}) before {} held {n} files",
+                dir.display()
+            );
+        }
+        assert!(
+            Instant::now() < deadline,
+            "the run never filled its staging folder"
+        );
+        std::thread::sleep(Duration::from_millis(5));
+    }
+}
+
+fn staging_of(out_dir: &str) -> PathBuf {
+    let p = Path::new(out_dir);
+    p.with_file_name(format!(
+        ".{}.staging",
+        p.file_name().unwrap().to_string_lossy()
+    ))
+}
+
+fn assert_same_tree(a: &str, b: &str) {
+    let (ha, hb) = (tree_hashes(Path::new(a)), tree_hashes(Path::new(b)));
+    assert!(!ha.is_empty(), "{a} is empty");
+    let names = |h: &[(String, String)]| h.iter().map(|(p, _)| p.clone()).collect::<Vec<_>>();
+    assert_eq!(names(&ha), names(&hb), "{a} and {b} hold different files");
+    for ((p, x), (_, y)) in ha.iter().zip(&hb) {
+        assert_eq!(x, y, "{p} differs between {a} and {b}");
+    }
+}
+
+#[test]
+fn exit_codes_are_the_documented_ones() {
+    let t = demo(6);
+    let ok = run(&t, &out(&t, "r"), &["--formats", "html"]);
+    assert_eq!(ok.code, 0, "{}", ok.stderr);
+    // A warning: a file in a participant folder that the loader does not read.
+    std::fs::write(t.dir.join("participants/SG-001/notes.csv"), "x\n").unwrap();
+    let warn = run(&t, &out(&t, "r"), &["--formats", "html"]);
+    assert_eq!(warn.code, 1, "{}", warn.stderr);
+    // An error in one participant: they are left out, the others reported.
+    std::fs::remove_file(t.dir.join("participants/SG-002/profile.yaml")).unwrap();
+    let errs = run(&t, &out(&t, "r"), &["--formats", "html"]);
+    assert_eq!(errs.code, 4, "{}", errs.stderr);
+    assert!(
+        errs.stderr
+            .contains("5 participants reported, 1 with errors"),
+        "{}",
+        errs.stderr
+    );
+    // Usage errors.
+    assert_eq!(run(&t, &out(&t, "r"), &["--jobs", "0"]).code, 2);
+    assert_eq!(run(&t, &out(&t, "r"), &["--period", "2031-01"]).code, 2);
+    assert_eq!(run(&t, &out(&t, "r"), &["--shard", "4/3"]).code, 2);
+    // An invalid program: nothing computed, nothing written.
+    std::fs::write(
+        t.dir.join("program.yaml"),
+        "format_version: 1\nprogram: [\n",
+    )
+    .unwrap();
+    let bad = run(&t, &out(&t, "r2"), &[]);
+    assert_eq!(bad.code, 3, "{}", bad.stderr);
+    assert!(!Path::new(&out(&t, "r2")).exists());
+    // --help lists every exit code.
+    let help = t.run(&["--help"]);
+    for (code, text) in cohortpress::exit_code::TABLE {
+        assert!(
+            help.stdout.contains(&format!("{code:>3}  {text}")),
+            "{}",
+            help.stdout
+        );
+    }
+}
+
+/// One test, one big run: a second run on the same output while it runs is refused with exit
+/// code 7; killing it with SIGKILL mid-way leaves the previous complete output byte-identical
+/// and nothing partial at the final path; the lock file it leaves does not block the next run.
+#[test]
+fn a_killed_run_leaves_the_previous_output_and_its_lock_blocks_nobody() {
+    let t = demo(200);
+    let o = out(&t, "reports");
+    // "Last month": a complete output from two participants.
+    let first = run(&t, &o, &["--only", "SG-001", "SG-002"]);
+    assert_eq!(first.code, 0, "{}", first.stderr);
+    let before = tree_hashes(Path::new(&o));
+    assert!(before.iter().any(|(p, _)| p == "manifest.json"));
+
+    let mut big = spawn_run(&t, &o, &["--jobs", "2"]);
+    let staging = staging_of(&o);
+    wait_for_files(&mut big, &staging.join("participants"), 10);
+
+    // The lock: a second run exits at once with its own code and says why.
+    let second = run(&t, &o, &["--only", "SG-003"]);
+    assert_eq!(second.code, 7, "{}", second.stderr);
+    assert!(
+        second
+            .stderr
+            .contains("another cohortpress run is writing to"),
+        "{}",
+        second.stderr
+    );
+
+    big.kill().unwrap(); // SIGKILL on Unix
+    let status = big.wait().unwrap();
+    assert!(!status.success());
+    assert_eq!(
+        tree_hashes(Path::new(&o)),
+        before,
+        "the previous output changed"
+    );
+    let lock = Path::new(&o).with_file_name(".reports.lock");
+    assert!(lock.exists(), "the killed run's lock file is left behind");
+
+    // The next run is not blocked by the stale lock file and replaces the leftovers.
+    let next = run(&t, &o, &["--only", "SG-003", "--formats", "html"]);
+    assert_eq!(next.code, 0, "{}", next.stderr);
+    assert!(!staging.exists(), "staging is gone after a complete run");
+    let names: Vec<String> = tree_hashes(Path::new(&o))
+        .into_iter()
+        .map(|(p, _)| p)
+        .collect();
+    assert!(
+        names.contains(&"participants/SG-003.html".to_string()),
+        "{names:?}"
+    );
+    assert!(!names.iter().any(|n| n.contains("SG-001")), "{names:?}");
+}
+
+#[test]
+fn repeated_runs_and_any_job_count_give_identical_outputs() {
+    let t = demo(10);
+    let (a, b, c) = (out(&t, "a"), out(&t, "b"), out(&t, "c"));
+    assert_eq!(run(&t, &a, &["--jobs", "2"]).code, 0);
+    assert_eq!(run(&t, &b, &["--jobs", "2"]).code, 0);
+    assert_eq!(run(&t, &c, &["--jobs", "1"]).code, 0);
+    assert_same_tree(&a, &b);
+    assert_same_tree(&a, &c);
+    // Reports in both formats, the tidy metrics, partial results and the manifest, which lists
+    // every other output with its checksum and holds no clock time.
+    let names: Vec<String> = tree_hashes(Path::new(&a))
+        .into_iter()
+        .map(|(p, _)| p)
+        .collect();
+    for n in [
+        "group/program.html",
+        "group/program.pdf",
+        "participants/SG-001.pdf",
+        "metrics/participants.csv",
+        "cache/SG-001.json",
+        "manifest.json",
+    ] {
+        assert!(names.contains(&n.to_string()), "{n} missing: {names:?}");
+    }
+    let manifest: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(Path::new(&a).join("manifest.json")).unwrap())
+            .unwrap();
+    let listed = manifest["outputs"].as_array().unwrap().len();
+    assert_eq!(
+        listed,
+        names.len() - 1,
+        "every output but the manifest is listed"
+    );
+    let pdf = std::fs::read(Path::new(&a).join("participants/SG-001.pdf")).unwrap();
+    let text = String::from_utf8_lossy(&pdf);
+    // The PDF's date is the period end, not the clock.
+    assert!(
+        text.contains("D:20260930"),
+        "PDF creation date is the period end"
+    );
+}
+
+#[test]
+fn outputs_are_owner_only_unless_group_readable() {
+    use std::os::unix::fs::PermissionsExt;
+    let t = demo(3);
+    let mode = |p: &Path| std::fs::metadata(p).unwrap().permissions().mode() & 0o777;
+    let o = out(&t, "private");
+    assert_eq!(run(&t, &o, &["--formats", "html"]).code, 0);
+    assert_eq!(mode(Path::new(&o)), 0o700);
+    assert_eq!(mode(&Path::new(&o).join("participants")), 0o700);
+    assert_eq!(mode(&Path::new(&o).join("participants/SG-001.html")), 0o600);
+    assert_eq!(mode(&Path::new(&o).join("manifest.json")), 0o600);
+    let g = out(&t, "shared");
+    assert_eq!(
+        run(&t, &g, &["--formats", "html", "--group-readable"]).code,
+        0
+    );
+    assert_eq!(mode(Path::new(&g)), 0o750);
+    assert_eq!(mode(&Path::new(&g).join("participants/SG-001.html")), 0o640);
+    // Modes only: the content is the same.
+    assert_same_tree(&o, &g);
+}
+
+#[test]
+fn a_cron_style_run_logs_json_lines_and_no_progress_bar() {
+    let t = demo(4);
+    // `ProgramTest::run` gives the binary no terminal and a closed standard input.
+    let r = run(
+        &t,
+        &out(&t, "r"),
+        &["--log-format", "json", "--formats", "html"],
+    );
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let lines: Vec<&str> = r.stderr.lines().collect();
+    assert!(lines.len() >= 3, "{}", r.stderr);
+    let mut messages = Vec::new();
+    for l in &lines {
+        let v: serde_json::Value =
+            serde_json::from_str(l).unwrap_or_else(|e| panic!("not a JSON line ({e}): {l}"));
+        assert!(v["level"].is_string(), "{l}");
+        messages.push(
+            v["fields"]["message"]
+                .as_str()
+                .unwrap_or_default()
+                .to_string(),
+        );
+        // The per-phase timing is a log record with numeric fields.
+        if v["fields"]["message"] == "timing in seconds per phase" {
+            assert!(v["fields"]["participants_s"].is_number(), "{l}");
+        }
+    }
+    assert!(
+        messages.iter().any(|m| m.starts_with("done in")),
+        "{messages:?}"
+    );
+    assert!(
+        messages.iter().any(|m| m == "timing in seconds per phase"),
+        "{messages:?}"
+    );
+    assert!(
+        !r.stderr.contains('\u{1b}'),
+        "no terminal escapes without a terminal"
+    );
+}
+
+#[test]
+fn an_incremental_run_recomputes_only_what_changed_and_equals_a_full_run() {
+    let t = demo(10);
+    let inc = out(&t, "inc");
+    assert_eq!(run(&t, &inc, &[]).code, 0);
+    let before = tree_hashes(Path::new(&inc));
+
+    // Nothing changed: everybody is reused and the output is identical.
+    let same = run(&t, &inc, &["--incremental"]);
+    assert_eq!(same.code, 0, "{}", same.stderr);
+    assert!(
+        same.stderr.contains("10 participants reused, 0 recomputed"),
+        "{}",
+        same.stderr
+    );
+    assert_eq!(tree_hashes(Path::new(&inc)), before);
+
+    // One participant's last weigh-in changes.
+    let w = t.dir.join("participants/SG-004/weights.csv");
+    let text = std::fs::read_to_string(&w).unwrap();
+    let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
+    let last = lines.last_mut().unwrap();
+    let mut fields: Vec<String> = last.split(',').map(str::to_string).collect();
+    let v: f64 = fields[1].parse().unwrap();
+    fields[1] = format!("{:.1}", v - 1.5);
+    *last = fields.join(",");
+    std::fs::write(&w, lines.join("\n") + "\n").unwrap();
+
+    let r = run(&t, &inc, &["--incremental"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("9 participants reused, 1 recomputed"),
+        "{}",
+        r.stderr
+    );
+    let full = out(&t, "full");
+    assert_eq!(run(&t, &full, &[]).code, 0);
+    assert_same_tree(&inc, &full);
+    let after = tree_hashes(Path::new(&inc));
+    let changed: Vec<&String> = after
+        .iter()
+        .zip(&before)
+        .filter(|(a, b)| a.1 != b.1)
+        .map(|(a, _)| &a.0)
+        .collect();
+    assert!(
+        changed.contains(&&"participants/SG-004.pdf".to_string()),
+        "{changed:?}"
+    );
+    assert!(!changed.iter().any(|p| p.contains("SG-005")), "{changed:?}");
+
+    // A changed setting (another as-of date) recomputes everybody.
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-02",
+        "--out",
+        &inc,
+        "--incremental",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("0 participants reused, 10 recomputed"),
+        "{}",
+        r.stderr
+    );
+}
+
+#[test]
+fn three_shards_merged_equal_a_single_run() {
+    let t = demo(12);
+    let single = out(&t, "single");
+    assert_eq!(run(&t, &single, &[]).code, 0);
+    let mut shard_dirs = Vec::new();
+    let mut seen = 0;
+    for k in 1..=3 {
+        let d = out(&t, &format!("shard{k}"));
+        let r = run(&t, &d, &["--shard", &format!("{k}/3")]);
+        assert_eq!(r.code, 0, "{}", r.stderr);
+        let shard: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(Path::new(&d).join("shard.json")).unwrap())
+                .unwrap();
+        let ids = shard["participants"].as_array().unwrap();
+        // Each participant's shard follows from their id alone.
+        for id in ids {
+            assert_eq!(
+                cohortpress::shard::shard_of(id.as_str().unwrap(), 3),
+                k,
+                "{id} in shard {k}"
+            );
+        }
+        seen += ids.len();
+        assert!(
+            !Path::new(&d).join("group").exists(),
+            "a shard writes no group report"
+        );
+        shard_dirs.push(d);
+    }
+    assert_eq!(seen, 12, "every participant in exactly one shard");
+
+    let merged = out(&t, "merged");
+    let mut args = vec!["merge", "{dir}", "--out", merged.as_str()];
+    // Any order of the shard folders.
+    args.extend(shard_dirs.iter().rev().map(String::as_str));
+    let m = t.run(&args);
+    assert_eq!(m.code, 0, "{}", m.stderr);
+    assert_same_tree(&single, &merged);
+
+    // A missing shard is refused with the reason, and nothing is written.
+    let partial = out(&t, "partial");
+    let m = t.run(&[
+        "merge",
+        "{dir}",
+        "--out",
+        &partial,
+        &shard_dirs[0],
+        &shard_dirs[2],
+    ]);
+    assert_eq!(m.code, 2, "{}", m.stderr);
+    assert!(m.stderr.contains("missing: [2/3]"), "{}", m.stderr);
+    assert!(!Path::new(&partial).exists());
+
+    // Shards of a different run (another as-of date) are refused.
+    let other = out(&t, "other2");
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-02",
+        "--out",
+        &other,
+        "--shard",
+        "2/3",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let m = t.run(&[
+        "merge",
+        "{dir}",
+        "--out",
+        &partial,
+        &shard_dirs[0],
+        &other,
+        &shard_dirs[2],
+    ]);
+    assert_eq!(m.code, 2, "{}", m.stderr);
+    assert!(m.stderr.contains("of a different run"), "{}", m.stderr);
+}
