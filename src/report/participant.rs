@@ -247,11 +247,12 @@ pub fn build(
             .unwrap_or_default();
         summary.push(Kv::new(
             "BMI",
-            &format!("{} kg/m² ({cat})", fmt::fixed(bmi, 1)),
+            &format!("{} kg/m², {cat}", fmt::fixed(bmi, 1)),
         ));
     }
 
-    let headline = headline(trend, outcomes, units);
+    let left = p.withdrew.filter(|w| *w <= plan.period.to);
+    let headline = headline(trend, outcomes, units, left);
 
     let milestones = outcomes
         .and_then(|o| o.table("milestones"))
@@ -293,11 +294,15 @@ pub fn build(
     };
 
     // Plateaus and options.
+    // Only plateaus that reach into the last four weeks before the period: older ones are
+    // history (still shaded on the weight chart), not something to act on now.
+    let recent = plan.period.from - chrono::Duration::days(28);
     let plateaus = energy
         .and_then(|e| e.table("plateau_assessment"))
         .map(|t| {
             t.rows
                 .iter()
+                .filter(|r| cell_date(t, r, "end").is_none_or(|end| end >= recent))
                 .map(|r| {
                     let period = match (cell_date(t, r, "start"), cell_date(t, r, "end")) {
                         (Some(a), Some(b)) => format!("{} – {}", fmt::date(a), fmt::date(b)),
@@ -306,7 +311,7 @@ pub fn build(
                     let verdict = match cell_str(t, r, "classification").as_str() {
                         "expected_slowdown" => "The slowdown expected at your new, lower weight: your body now uses less energy than when you started.".to_string(),
                         "intake_drift" => "Most likely a gradual rise in how much is eaten: the weight trend implies a higher intake than before the plateau.".to_string(),
-                        _ => "The data do not yet say clearly which it is.".to_string(),
+                        _ => "The records do not yet show clearly whether this is the expected slowdown at a lower weight or a gradual rise in how much is eaten.".to_string(),
                     };
                     PlateauView { period, verdict, evidence: cell_str(t, r, "evidence") }
                 })
@@ -473,6 +478,7 @@ fn headline(
     trend: Option<&ModuleOutput>,
     outcomes: Option<&ModuleOutput>,
     units: UnitSystem,
+    left: Option<NaiveDate>,
 ) -> String {
     let status = trend
         .and_then(|t| t.text("status"))
@@ -485,6 +491,13 @@ fn headline(
     let rate_s = rate
         .map(|r| fmt::rate_per_week(r, units))
         .unwrap_or_default();
+    // Someone who has left gets no "last four weeks" status: their records stop at leaving.
+    if let Some(w) = left {
+        return format!(
+            "You left the program on {}; this report shows your records up to then.{since}",
+            fmt::date(w)
+        );
+    }
     match status {
         "losing" => format!(
             "Your weight trend is going down, by about {rate_s} over the last four weeks.{since}"
@@ -496,7 +509,9 @@ fn headline(
             format!("Your weight trend has been rising over the last four weeks ({rate_s}).{since}")
         }
         "stable" => format!("Your weight has been stable over the last four weeks.{since}"),
-        _ => format!("There are not yet enough weigh-ins to see a clear trend.{since}"),
+        _ => format!(
+            "There are too few recent weigh-ins to see how your weight moved over the last four weeks.{since}"
+        ),
     }
 }
 
@@ -505,10 +520,10 @@ fn option_view(t: &Table, r: &[Cell]) -> OptionView {
     let change = cell_num(t, r, "change_per_day").unwrap_or(0.0);
     let text = match kind.as_str() {
         "intake" => format!(
-            "Eat about {} less a day{}",
-            fmt::kcal_per_day(change.abs()),
+            "Eat about {} a day less{}",
+            fmt::kcal(change.abs()),
             cell_num(t, r, "resulting_intake_kcal_per_day")
-                .map(|v| format!(" (about {} in all)", fmt::kcal_per_day(v)))
+                .map(|v| format!(" (about {} a day in all)", fmt::kcal(v)))
                 .unwrap_or_default()
         ),
         "walking" => format!(
@@ -606,7 +621,11 @@ fn weight_chart(
             }
         }
     }
-    if let Some(s) = energy.and_then(|e| e.series("forecast_weight")) {
+    // No forecast (e.g. after leaving the program): no empty "Forecast" entry in the legend.
+    if let Some(s) = energy
+        .and_then(|e| e.series("forecast_weight"))
+        .filter(|s| !s.points.is_empty())
+    {
         bands.push(BandSeries {
             label: "Forecast band".into(),
             points: s

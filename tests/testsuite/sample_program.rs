@@ -1,0 +1,126 @@
+//! The bundled sample program, end to end through the real binary: what a new user sees after
+//! the README's first command.
+
+use crate::harness::{ProgramTest, tree_hashes};
+use std::collections::BTreeMap;
+
+fn read_csv(path: &std::path::Path) -> (Vec<String>, Vec<BTreeMap<String, String>>) {
+    let mut r = csv::Reader::from_path(path).expect("csv");
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let rows = r
+        .records()
+        .map(|rec| {
+            let rec = rec.unwrap();
+            header
+                .iter()
+                .cloned()
+                .zip(rec.iter().map(str::to_string))
+                .collect()
+        })
+        .collect();
+    (header, rows)
+}
+
+#[test]
+fn sample_program_runs_end_to_end() {
+    let t = ProgramTest::sample();
+    let inputs_before = tree_hashes(&t.dir);
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--jobs", "2"]);
+    // The sample has planted defects: one folder without a profile is left out (exit 4).
+    assert_eq!(out.code, 4, "stderr:\n{}", out.stderr);
+    assert!(out.stderr.contains("SG-049"), "{}", out.stderr);
+    let reports = t.dir.join("reports");
+
+    // Inputs untouched: every file that was there is byte-identical (only reports/ and the
+    // lock file were added, beside the inputs).
+    let after: Vec<_> = tree_hashes(&t.dir)
+        .into_iter()
+        .filter(|(p, _)| !p.starts_with("reports/") && !p.starts_with(".reports"))
+        .collect();
+    assert_eq!(after, inputs_before);
+
+    // One private report per usable participant in each format, and the group report.
+    for id in (1..=48).map(|i| format!("SG-{i:03}")) {
+        for ext in ["html", "pdf"] {
+            let f = reports.join(format!("participants/{id}.{ext}"));
+            assert!(f.is_file(), "missing {}", f.display());
+        }
+    }
+    assert!(!reports.join("participants/SG-049.html").exists());
+    for f in ["group/program.html", "group/program.pdf", "manifest.json"] {
+        assert!(reports.join(f).is_file(), "missing {f}");
+    }
+
+    // Tidy metrics: one row per usable participant, every module present with units in the
+    // column names.
+    let (header, rows) = read_csv(&reports.join("metrics/participants.csv"));
+    assert_eq!(rows.len(), 48);
+    for col in [
+        "trend.current_weight_kg",
+        "trend.slope_kg_per_week",
+        "energy.rmr_kcal_per_day",
+        "energy.implied_intake_kcal_per_day",
+        "energy.intake_gap_kcal_per_day",
+        "adherence.activity_minutes_per_week",
+        "outcomes.change_percent",
+        "outcomes.bmi_current_kg_m2",
+        "outcomes.bmi_category_current",
+    ] {
+        assert!(header.iter().any(|h| h == col), "no column {col}");
+    }
+    // Values every participant with weigh-ins must have.
+    for r in &rows {
+        for col in [
+            "outcomes.baseline_weight_kg",
+            "energy.rmr_kcal_per_day",
+            "trend.weigh_ins_used",
+        ] {
+            let v: f64 = r[col]
+                .parse()
+                .unwrap_or_else(|_| panic!("{} {col}: `{}`", r["participant_id"], r[col]));
+            assert!(v > 0.0, "{} {col} = {v}", r["participant_id"]);
+        }
+    }
+    // The sample's logs under-report intake (by design, as real logs do): most participants
+    // with an intake gap show more eaten than logged.
+    let gaps: Vec<f64> = rows
+        .iter()
+        .filter_map(|r| r["energy.intake_gap_kcal_per_day"].parse().ok())
+        .collect();
+    assert!(gaps.len() >= 30, "{} gaps", gaps.len());
+    let positive = gaps.iter().filter(|g| **g > 0.0).count();
+    assert!(
+        positive * 3 >= gaps.len() * 2,
+        "{positive} of {} gaps positive",
+        gaps.len()
+    );
+
+    // Every planted defect is in the data-quality list with its file and line.
+    let (_, dq) = read_csv(&reports.join("metrics/data-quality.csv"));
+    for (file, line) in [
+        ("participants/SG-045/weights.csv", "48"),
+        ("participants/SG-042/weights.csv", "39"),
+        ("participants/SG-033/weights.csv", "60"),
+        ("participants/SG-023/weights.csv", "60"),
+        ("participants/SG-032/weights.csv", "34"),
+    ] {
+        assert!(
+            dq.iter().any(|d| d["file"] == file && d["line"] == line),
+            "data-quality.csv lacks {file}:{line}"
+        );
+    }
+    assert!(
+        dq.iter()
+            .any(|d| d["file"].starts_with("participants/SG-049"))
+    );
+
+    // The group report names no participant.
+    let group = std::fs::read_to_string(reports.join("group/program.html")).unwrap();
+    for id in (1..=48).map(|i| format!("SG-{i:03}")) {
+        assert!(!group.contains(&id), "group report names {id}");
+    }
+    assert!(
+        !group.contains("Ana-Lucía"),
+        "group report names a participant"
+    );
+}
