@@ -684,14 +684,14 @@ fn weight_chart(
 fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
     let push = |items: &mut Vec<Kv>, label: &str, name: &str| {
-        if let Some(s) = e.scalar_full(name) {
-            if let Some(v) = s.value {
-                let mut text = fmt::kcal_per_day(v);
-                if let (Some(l), Some(u)) = (s.lower, s.upper) {
-                    text = format!("{text} (95 % interval {}–{})", l.round(), u.round());
-                }
-                items.push(Kv::new(label, &text));
+        if let Some(s) = e.scalar_full(name)
+            && let Some(v) = s.value
+        {
+            let mut text = fmt::kcal_per_day(v);
+            if let (Some(l), Some(u)) = (s.lower, s.upper) {
+                text = format!("{text} (95 % interval {}–{})", l.round(), u.round());
             }
+            items.push(Kv::new(label, &text));
         }
     };
     push(&mut items, "Resting energy (estimated)", "rmr_kcal_per_day");
@@ -809,13 +809,15 @@ fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
             &format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0)),
         ));
     }
-    if let (Some(att), Some(off)) = (a.scalar("sessions_attended"), a.scalar("sessions_offered")) {
-        if off > 0.0 {
-            items.push(Kv::new(
-                "Group sessions attended",
-                &format!("{} of {}", att, off),
-            ));
-        }
+    if let (Some(att), Some(off)) = (
+        a.scalar("sessions_attended_to_date"),
+        a.scalar("sessions_offered_to_date"),
+    ) && off > 0.0
+    {
+        items.push(Kv::new(
+            "Group sessions attended since you joined",
+            &format!("{att} of {off}"),
+        ));
     }
     if let Some(v) = a.scalar("longest_weigh_in_streak_days") {
         items.push(Kv::new(
