@@ -15,9 +15,8 @@ pub fn group(min_cell: u32) -> Vec<String> {
     vec![
         "This is a de-identified summary for program evaluation. It contains no names or participant ids, and it is not medical advice.".into(),
         format!(
-            "Counts from 1 to {} are not shown (marked “<{}”), and other cells are hidden where a hidden count could otherwise be worked out by subtraction; groups with fewer than {} participants are withheld or combined.",
+            "Counts from 1 to {} are not shown (they read “suppressed”, and such bars in the charts are drawn empty), and other cells are hidden too where a hidden count could otherwise be worked out by subtraction; groups with fewer than {} participants are withheld or combined.",
             min_cell.saturating_sub(1),
-            min_cell,
             min_cell
         ),
         "Weight outcomes are given under intention-to-treat (everyone who started, with the starting weight carried forward for anyone without a recent weigh-in) and for completers only; completer figures alone overstate what a program achieves.".into(),

@@ -73,6 +73,11 @@ pub fn kcal_per_day(v: f64) -> String {
     format!("{} kcal/day", group_thousands(v.round() as i64))
 }
 
+/// Energy without a time unit, for sentences that say "a day" in words: `1 850 kcal`.
+pub fn kcal(v: f64) -> String {
+    format!("{} kcal", group_thousands(v.round() as i64))
+}
+
 /// Signed energy change: `−350 kcal/day`.
 pub fn kcal_change(v: f64) -> String {
     let r = v.round() as i64;
@@ -121,7 +126,7 @@ fn group_thousands(v: i64) -> String {
     let digits = v.abs().to_string();
     let mut out = String::new();
     for (i, ch) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i) % 3 == 0 {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
             out.push('\u{202f}');
         }
         out.push(ch);
@@ -143,6 +148,7 @@ mod tests {
         assert_eq!(percent_change(1.25), "+1.2 %");
         assert_eq!(kcal_per_day(1850.4), "1\u{202f}850 kcal/day");
         assert_eq!(kcal_change(-350.0), "\u{2212}350 kcal/day");
+        assert_eq!(kcal(1125.6), "1\u{202f}126 kcal");
         assert_eq!(height(167.64, UnitSystem::UsCustomary), "5 ft 6 in");
         assert_eq!(
             date(NaiveDate::from_ymd_opt(2026, 9, 4).unwrap()),

@@ -101,20 +101,29 @@ fn interval(s: &Shown<Interval>, decimals: usize) -> String {
     }
 }
 
+/// `value (interval)`, or the value alone when the interval cannot be shown (a suppressed
+/// figure reads "suppressed" once, not "suppressed (suppressed)").
+fn with_interval(value: String, iv: &Shown<Interval>, decimals: usize) -> String {
+    match iv {
+        Shown::Value(_) => format!("{value} ({})", interval(iv, decimals)),
+        _ => value,
+    }
+}
+
+/// `median (n)`, or plain words when nobody had data (no sessions offered in the period, say).
+fn median_with_n(median: String, n: &Shown<u64>) -> String {
+    match n {
+        Shown::Value(0) => "no data in this period".into(),
+        _ => format!("{median} ({})", count(n)),
+    }
+}
+
 fn change_row(label: &str, c: &ChangeLine) -> Vec<String> {
     vec![
         label.into(),
         count(&c.n),
-        format!(
-            "{} ({})",
-            num(&c.percent.mean, 1, " %"),
-            interval(&c.percent.mean_ci, 1)
-        ),
-        format!(
-            "{} ({})",
-            num(&c.percent.median, 1, " %"),
-            interval(&c.percent.median_ci, 1)
-        ),
+        with_interval(num(&c.percent.mean, 1, " %"), &c.percent.mean_ci, 1),
+        with_interval(num(&c.percent.median, 1, " %"), &c.percent.median_ci, 1),
     ]
 }
 
@@ -140,10 +149,12 @@ pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupRepo
         }
     }
     if summary.participants_with_errors > 0 {
-        notes.push(format!(
-            "{} participant folder(s) could not be used because of input errors and are not counted here; the run's data-quality list names the problems.",
-            summary.participants_with_errors
-        ));
+        let n = summary.participants_with_errors;
+        notes.push(if n == 1 {
+            "One participant folder could not be used because of input errors and is not counted here; the run's data-quality list (metrics/data-quality.csv) names the problems.".to_string()
+        } else {
+            format!("{n} participant folders could not be used because of input errors and are not counted here; the run's data-quality list (metrics/data-quality.csv) names the problems.")
+        });
     }
     let m = &g.methods;
     let methods = vec![
@@ -264,7 +275,7 @@ fn fill(
                     format!("{} %", fmt::fixed(m.loss_at_least_percent, 0)),
                     count(&m.reached),
                     count(&m.denominator),
-                    format!("{} ({})", num(&m.percent, 0, " %"), interval(&m.ci, 0)),
+                    with_interval(num(&m.percent, 0, " %"), &m.ci, 0),
                 ]
             })
             .collect(),
@@ -276,34 +287,30 @@ fn fill(
         rows: vec![
             vec![
                 "Activity minutes per week (moderate-equivalent)".into(),
-                format!(
-                    "{} ({})",
+                median_with_n(
                     num(&a.activity_minutes_per_week.median, 0, ""),
-                    count(&a.activity_minutes_per_week.n)
+                    &a.activity_minutes_per_week.n,
                 ),
             ],
             vec![
                 "Weigh-ins per week".into(),
-                format!(
-                    "{} ({})",
+                median_with_n(
                     num(&a.weigh_ins_per_week.median, 1, ""),
-                    count(&a.weigh_ins_per_week.n)
+                    &a.weigh_ins_per_week.n,
                 ),
             ],
             vec![
                 "Food-log days per week".into(),
-                format!(
-                    "{} ({})",
+                median_with_n(
                     num(&a.food_log_days_per_week.median, 1, ""),
-                    count(&a.food_log_days_per_week.n)
+                    &a.food_log_days_per_week.n,
                 ),
             ],
             vec![
                 "Session attendance".into(),
-                format!(
-                    "{} ({})",
+                median_with_n(
                     num(&a.attendance_percent.median, 0, " %"),
-                    count(&a.attendance_percent.n)
+                    &a.attendance_percent.n,
                 ),
             ],
             vec![
@@ -378,7 +385,7 @@ fn fill(
         .collect();
     if pts.len() >= 2 {
         let name = format!("{anchor}-trajectory");
-        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band; weeks with too few participants are left out. The axis counts weeks from the program's start date.".to_string();
+        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band; weeks with too few participants are left out. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
         let table = TableView {
             header: vec!["Week".into(), "n".into(), "Mean change (95 % CI)".into()],
             rows: st
@@ -388,11 +395,7 @@ fn fill(
                     vec![
                         (wp.week + 1).to_string(),
                         count(&wp.n),
-                        format!(
-                            "{} ({})",
-                            num(&wp.mean_percent, 1, " %"),
-                            interval(&wp.ci, 1)
-                        ),
+                        with_interval(num(&wp.mean_percent, 1, " %"), &wp.ci, 1),
                     ]
                 })
                 .collect(),

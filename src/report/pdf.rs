@@ -105,16 +105,20 @@ pub fn participant(r: &ParticipantReport) -> Result<Vec<u8>, RenderError> {
         b.push(Block::Callout {
             tone: Tone::Info,
             title: format!("Plateau, {}", p.period),
-            text: format!("{} {}", p.verdict, p.evidence),
+            text: p.verdict.clone(),
         });
+        b.push(Block::Small(format!(
+            "The numbers behind this: {}",
+            p.evidence
+        )));
     }
     if c.options.is_empty() {
         b.push(Block::Paragraph(
-            "Keep going with what works for you; there is not enough data yet to suggest a specific change.".into(),
+            "Keep going with what works for you. If your weight levels off, this section will show what it would take to get back to a steady loss.".into(),
         ));
     } else {
         b.push(Block::Paragraph(
-            "To get back to a steady loss of about half a kilogram (one pound) a week, either of these would do it on its own, or a mix of both:".into(),
+            "What it would take to get back to a steady loss of about half a kilogram (one pound) a week, each change on its own (a mix of smaller changes works too):".into(),
         ));
         b.push(Block::Bullets(
             c.options
@@ -123,7 +127,7 @@ pub fn participant(r: &ParticipantReport) -> Result<Vec<u8>, RenderError> {
                     if o.feasible {
                         o.text.clone()
                     } else {
-                        format!("Not recommended: {} — {}", o.text, o.reason)
+                        format!("{}. Not advised on its own: {}", o.text, o.reason)
                     }
                 })
                 .collect(),
@@ -240,7 +244,7 @@ pub fn group(g: &GroupReportModel) -> Result<Vec<u8>, RenderError> {
             level: 3,
             text: "Weight change".into(),
         });
-        b.push(table(&s.outcomes, vec![2.6, 0.7, 1.6, 1.6]));
+        b.push(table(&s.outcomes, vec![2.6, 0.9, 1.6, 1.6]));
         b.push(Block::Small(s.outcomes_note.clone()));
         b.push(Block::Heading {
             level: 3,

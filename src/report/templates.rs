@@ -328,11 +328,11 @@ pub fn dump_command(dir: &Path) -> i32 {
             eprintln!("skipped {} (exists)", path.display());
             continue;
         }
-        if let Some(p) = path.parent() {
-            if let Err(e) = std::fs::create_dir_all(p) {
-                eprintln!("error: {}: {e}", p.display());
-                return crate::exit_code::OUTPUT_FAILED;
-            }
+        if let Some(p) = path.parent()
+            && let Err(e) = std::fs::create_dir_all(p)
+        {
+            eprintln!("error: {}: {e}", p.display());
+            return crate::exit_code::OUTPUT_FAILED;
         }
         if let Err(e) = std::fs::write(&path, text) {
             eprintln!("error: {}: {e}", path.display());

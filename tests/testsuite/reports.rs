@@ -1,0 +1,841 @@
+//! Reports: the report model and its documentation, HTML and PDF output of a real run of the
+//! bundled sample, escaping and the absence of external requests, template overrides in strict
+//! mode, and agreement of the reports with the tidy metrics.
+//!
+//! One sample run through the binary is shared by every test in this file ([`sample_run`]), and
+//! the report models are built once through the library ([`contexts`]) from the same sample.
+//! Runs that change templates use the four-participant fixture `tests/fixtures/report-small`.
+
+use crate::harness::{Outcome, ProgramTest, repo_root};
+use clap::Parser;
+use cohortpress::report::participant::ExtraView;
+use cohortpress::report::templates::{BUILTIN, TemplateSet};
+use cohortpress::report::{GroupReportContext, Kv, ParticipantReportContext, format as fmt};
+use cohortpress_metric_api::UnitSystem;
+use std::collections::{BTreeMap, BTreeSet};
+use std::path::PathBuf;
+use std::sync::OnceLock;
+
+const AS_OF: &str = "2026-12-01";
+
+/// The participant whose context and HTML are snapshotted: a plateau with options, labs and
+/// every section filled.
+const SNAPSHOT_ID: &str = "SG-007";
+
+// ---------------------------------------------------------------------------------------------
+// Shared runs
+// ---------------------------------------------------------------------------------------------
+
+/// The sample program run once through the binary.
+struct SampleRun {
+    prog: ProgramTest,
+    outcome: Outcome,
+}
+
+impl SampleRun {
+    fn out(&self) -> PathBuf {
+        self.prog.dir.join("reports")
+    }
+
+    fn read(&self, rel: &str) -> String {
+        std::fs::read_to_string(self.out().join(rel)).unwrap_or_else(|e| panic!("{rel}: {e}"))
+    }
+
+    fn bytes(&self, rel: &str) -> Vec<u8> {
+        std::fs::read(self.out().join(rel)).unwrap_or_else(|e| panic!("{rel}: {e}"))
+    }
+}
+
+fn sample_run() -> &'static SampleRun {
+    static RUN: OnceLock<SampleRun> = OnceLock::new();
+    RUN.get_or_init(|| {
+        let prog = ProgramTest::sample();
+        let outcome = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+        // The sample has one planted folder without a profile: participant errors, exit 4.
+        assert_eq!(outcome.code, 4, "sample run: {}", outcome.stderr);
+        SampleRun { prog, outcome }
+    })
+}
+
+/// The small fixture run once (unchanged templates).
+fn small_run() -> &'static SampleRun {
+    static RUN: OnceLock<SampleRun> = OnceLock::new();
+    RUN.get_or_init(|| {
+        let prog = ProgramTest::fixture("report-small");
+        let outcome = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+        assert_eq!(outcome.code, 0, "small run: {}", outcome.stderr);
+        SampleRun { prog, outcome }
+    })
+}
+
+/// Report models of the sample, built through the library exactly as the runner builds them.
+struct Contexts {
+    /// Every usable participant's context, by id.
+    participants: BTreeMap<String, ParticipantReportContext>,
+    /// The group context.
+    group: GroupReportContext,
+    /// The HTML of [`SNAPSHOT_ID`] rendered from the library model with the built-in templates.
+    snapshot_html: String,
+}
+
+fn contexts() -> &'static Contexts {
+    static CTX: OnceLock<Contexts> = OnceLock::new();
+    CTX.get_or_init(|| {
+        use cohortpress::cli::{Cli, Command};
+        let root = repo_root().join("sample-program");
+        let cli = Cli::try_parse_from([
+            "cohortpress",
+            "run",
+            root.to_str().unwrap(),
+            "--as-of",
+            AS_OF,
+        ])
+        .expect("arguments parse");
+        let Command::Run(args) = cli.command else {
+            panic!("not a run command")
+        };
+        let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+        let plan = cohortpress::runner::plan_from_args(&args, today)
+            .unwrap_or_else(|(code, d)| panic!("plan: exit {code}: {d:?}"));
+        let (dirs, _) = cohortpress::participant::discover(&plan.program);
+        let templates = TemplateSet::load(&plan.program).expect("built-in templates load");
+        let mut participants = BTreeMap::new();
+        let mut rows = Vec::new();
+        let mut summary = cohortpress::runner::RunSummary {
+            participants: dirs.len(),
+            ..Default::default()
+        };
+        let mut snapshot_html = String::new();
+        for dir in &dirs {
+            let loaded = cohortpress::participant::load_participant(&plan.program, dir, plan.as_of);
+            let Some(data) = loaded.data else {
+                summary.participants_with_errors += 1;
+                continue;
+            };
+            let results = plan
+                .modules
+                .run(&plan.program.info, plan.period, plan.as_of, &data);
+            let report = cohortpress::report::participant_context(
+                &plan,
+                &data,
+                &results,
+                &loaded.diagnostics,
+            );
+            if data.profile.id == SNAPSHOT_ID {
+                let files = cohortpress::report::render_participant(
+                    &templates,
+                    &report,
+                    &[cohortpress::program::Format::Html],
+                )
+                .expect("renders");
+                snapshot_html = String::from_utf8(files[0].1.clone()).unwrap();
+            }
+            rows.push(cohortpress::runner::summary_row(&plan, &data, &results));
+            participants.insert(data.profile.id.clone(), report.ctx);
+        }
+        let opts = cohortpress::group::GroupOptions {
+            min_cell_size: plan.program.def.privacy.min_cell_size,
+            group_by: plan.program.def.report.group_by.clone(),
+            confidence: 0.95,
+        };
+        let group = cohortpress::group::summarize(&rows, &opts);
+        let group = cohortpress::report::group_context(&plan, &group, &summary).ctx;
+        Contexts {
+            participants,
+            group,
+            snapshot_html,
+        }
+    })
+}
+
+// ---------------------------------------------------------------------------------------------
+// Helpers
+// ---------------------------------------------------------------------------------------------
+
+/// Every key path of a JSON value: objects as `a.b`, arrays as `a[]` (their items' paths
+/// below, e.g. `rows[][]`). Null and empty arrays contribute their own path only.
+fn key_paths(v: &serde_json::Value, prefix: &str, out: &mut BTreeSet<String>) {
+    match v {
+        serde_json::Value::Object(m) => {
+            for (k, v) in m {
+                let p = if prefix.is_empty() {
+                    k.clone()
+                } else {
+                    format!("{prefix}.{k}")
+                };
+                out.insert(p.clone());
+                key_paths(v, &p, out);
+            }
+        }
+        serde_json::Value::Array(a) => {
+            let p = format!("{prefix}[]");
+            for item in a {
+                out.insert(p.clone());
+                key_paths(item, &p, out);
+            }
+        }
+        _ => {}
+    }
+}
+
+/// The documented paths of one `## …` section of CONTEXT.md: the first code span of every
+/// table row.
+fn documented_paths(doc: &str, section: &str) -> BTreeSet<String> {
+    let mut out = BTreeSet::new();
+    let mut inside = false;
+    for line in doc.lines() {
+        if let Some(h) = line.strip_prefix("## ") {
+            inside = h.trim() == section;
+            continue;
+        }
+        if !inside || !line.starts_with("| `") {
+            continue;
+        }
+        let rest = &line[3..];
+        let end = rest.find('`').expect("closing backtick");
+        out.insert(rest[..end].to_string());
+    }
+    out
+}
+
+/// The leaf key paths of several serialised values together (a path with nothing below it:
+/// `summary[].label`, `labs.rows[][]`, `headline`). Containers are implied by their leaves, so
+/// CONTEXT.md lists leaves only.
+fn context_paths<T: serde::Serialize>(values: &[T]) -> BTreeSet<String> {
+    let mut all = BTreeSet::new();
+    for v in values {
+        key_paths(&serde_json::to_value(v).unwrap(), "", &mut all);
+    }
+    leaves(&all)
+}
+
+fn leaves(all: &BTreeSet<String>) -> BTreeSet<String> {
+    all.iter()
+        .filter(|p| {
+            !all.iter().any(|q| {
+                q.len() > p.len()
+                    && q.starts_with(p.as_str())
+                    && matches!(q.as_bytes()[p.len()], b'.' | b'[')
+            })
+        })
+        .cloned()
+        .collect()
+}
+
+fn assert_same_paths(kind: &str, actual: &BTreeSet<String>, documented: &BTreeSet<String>) {
+    let undocumented: Vec<_> = actual.difference(documented).collect();
+    let stale: Vec<_> = documented.difference(actual).collect();
+    assert!(
+        undocumented.is_empty() && stale.is_empty(),
+        "report-templates/CONTEXT.md is out of date for {kind}:\n  fields without a row: {undocumented:#?}\n  rows for fields that do not exist: {stale:#?}"
+    );
+}
+
+/// The HTML with every inline `<svg …>…</svg>` replaced by `[SVG]`.
+fn strip_svg(html: &str) -> String {
+    let mut out = String::new();
+    let mut rest = html;
+    while let Some(i) = rest.find("<svg") {
+        out.push_str(&rest[..i]);
+        let end = rest[i..].find("</svg>").expect("closed svg") + i + "</svg>".len();
+        out.push_str("[SVG]");
+        rest = &rest[end..];
+    }
+    out.push_str(rest);
+    out
+}
+
+/// Text of every page of a PDF, decoded through its fonts' ToUnicode maps (lopdf).
+fn pdf_pages(bytes: &[u8]) -> Vec<String> {
+    let doc = lopdf::Document::load_mem(bytes).expect("PDF parses");
+    doc.get_pages()
+        .keys()
+        .map(|&n| {
+            doc.extract_text(&[n])
+                .unwrap_or_else(|e| panic!("page {n}: {e}"))
+        })
+        .collect()
+}
+
+/// The tidy participant rows of a run, by participant id.
+fn tidy_rows(run: &SampleRun) -> Vec<BTreeMap<String, String>> {
+    let mut r = csv::Reader::from_path(run.out().join("metrics/participants.csv")).unwrap();
+    let header = r.headers().unwrap().clone();
+    r.records()
+        .map(|rec| {
+            let rec = rec.unwrap();
+            header
+                .iter()
+                .zip(rec.iter())
+                .map(|(h, v)| (h.to_string(), v.to_string()))
+                .collect()
+        })
+        .collect()
+}
+
+fn num(row: &BTreeMap<String, String>, col: &str) -> Option<f64> {
+    row.get(col)
+        .filter(|v| !v.is_empty())
+        .map(|v| v.parse().unwrap_or_else(|e| panic!("{col}={v}: {e}")))
+}
+
+/// The value printed beside `label` in a key-value list of the HTML (`<dt>label</dt><dd>…</dd>`).
+fn kv_value(html: &str, label: &str) -> Option<String> {
+    let key = format!("<dt>{label}</dt><dd>");
+    let i = html.find(&key)? + key.len();
+    let end = html[i..].find("</dd>")? + i;
+    Some(html[i..end].to_string())
+}
+
+/// Minimal HTML text unescaping for figures (`&amp;`, `&lt;`, `&gt;`, `&quot;`, `&#x27;`).
+fn unescape(s: &str) -> String {
+    s.replace("&lt;", "<")
+        .replace("&gt;", ">")
+        .replace("&quot;", "\"")
+        .replace("&#x27;", "'")
+        .replace("&#x3D;", "=")
+        .replace("&#x60;", "`")
+        .replace("&amp;", "&")
+}
+
+/// Sets `report.templates: templates` in a copied program's program.yaml.
+fn use_template_folder(prog: &ProgramTest) {
+    let path = prog.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&path).unwrap();
+    assert!(text.contains("\nreport:\n"));
+    let text = text.replacen("\nreport:\n", "\nreport:\n  templates: templates\n", 1);
+    std::fs::write(&path, text).unwrap();
+}
+
+// ---------------------------------------------------------------------------------------------
+// 1. The documented template fields
+// ---------------------------------------------------------------------------------------------
+
+#[test]
+fn context_md_documents_exactly_the_participant_fields() {
+    let doc = std::fs::read_to_string(repo_root().join("report-templates/CONTEXT.md")).unwrap();
+    let c = contexts();
+    // Every participant of the sample, so optional sections (labs, flags, data notes…) appear
+    // in at least one of them; plus one copy with a module failure and an external module's
+    // values, which the bundled modules never produce (the fields exist for external modules).
+    let mut all: Vec<ParticipantReportContext> = c.participants.values().cloned().collect();
+    let mut extra = all[0].clone();
+    extra
+        .module_failures
+        .push("step-summary: exited with status 1".into());
+    extra.extra.push(ExtraView {
+        module: "step-summary".into(),
+        items: vec![Kv::new("Steps per day", "7 400 steps")],
+    });
+    all.push(extra);
+    let mut actual = context_paths(&all);
+    // Added at render time by the HTML renderer (drawn SVG by name).
+    for name in ["charts.weight", "charts.energy", "charts.activity"] {
+        actual.insert(name.into());
+    }
+    assert_same_paths(
+        "participant.html.hbs",
+        &actual,
+        &documented_paths(&doc, "participant.html.hbs"),
+    );
+}
+
+#[test]
+fn context_md_documents_exactly_the_group_fields() {
+    let doc = std::fs::read_to_string(repo_root().join("report-templates/CONTEXT.md")).unwrap();
+    let c = contexts();
+    let mut actual = context_paths(std::slice::from_ref(&c.group));
+    // The drawn charts, keyed by the names listed in `sections[].charts[].name`.
+    actual.insert("charts.*".into());
+    assert_same_paths(
+        "group.html.hbs",
+        &actual,
+        &documented_paths(&doc, "group.html.hbs"),
+    );
+}
+
+#[test]
+fn context_md_lists_every_helper_the_templates_use() {
+    let doc = std::fs::read_to_string(repo_root().join("report-templates/CONTEXT.md")).unwrap();
+    let documented = documented_paths(&doc, "Helpers");
+    let expected: BTreeSet<String> = ["chart", "len", "fixed", "percent", "date"]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+    assert_eq!(documented, expected);
+    // Each documented helper works as documented.
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("participant.html.hbs"),
+        "{{len items}}|{{fixed x 2}}|{{percent p}}|{{date d}}|{{chart \"weight\"}}",
+    )
+    .unwrap();
+    let set = TemplateSet::with_overrides(Some(dir.path())).unwrap();
+    let mut charts = serde_json::Map::new();
+    charts.insert("weight".into(), "<svg></svg>".into());
+    let html = set
+        .render(
+            "participant.html",
+            &serde_json::json!({"items": [1, 2, 3], "x": -0.004, "p": 62.4, "d": "2026-09-04"}),
+            charts,
+        )
+        .unwrap();
+    assert_eq!(html, "3|0.00|62 %|4 Sep 2026|<svg></svg>");
+}
+
+// ---------------------------------------------------------------------------------------------
+// 2. Snapshots
+// ---------------------------------------------------------------------------------------------
+
+/// The context as JSON with the tool name and version (`program.tool`) replaced, so a version
+/// bump does not change the snapshots.
+fn redact_tool<T: serde::Serialize>(ctx: &T) -> serde_json::Value {
+    let mut v = serde_json::to_value(ctx).unwrap();
+    let tool = v.pointer_mut("/program/tool").expect("program.tool");
+    assert!(tool.as_str().unwrap().starts_with("cohortpress "));
+    *tool = "[tool]".into();
+    v
+}
+
+#[test]
+fn participant_context_snapshot() {
+    let ctx = redact_tool(&contexts().participants[SNAPSHOT_ID]);
+    insta::assert_json_snapshot!("participant_context_sg007", ctx);
+}
+
+#[test]
+fn group_context_snapshot() {
+    insta::assert_json_snapshot!("group_context", redact_tool(&contexts().group));
+}
+
+#[test]
+fn participant_html_snapshot() {
+    let run = sample_run();
+    let html = run.read(&format!("participants/{SNAPSHOT_ID}.html"));
+    // The binary and the library build the same model: identical HTML.
+    assert_eq!(html, contexts().snapshot_html);
+    let stripped = strip_svg(&html);
+    assert_eq!(
+        html.matches("<svg").count(),
+        3,
+        "weight, energy and activity charts"
+    );
+    insta::with_settings!({filters => vec![(r"cohortpress \d+\.\d+\.\d+\S*", "cohortpress [version]")]}, {
+        insta::assert_snapshot!("participant_html_sg007", stripped);
+    });
+}
+
+// ---------------------------------------------------------------------------------------------
+// 3. PDF
+// ---------------------------------------------------------------------------------------------
+
+#[test]
+fn participant_pdfs_carry_unicode_names_figures_header_and_footer() {
+    let run = sample_run();
+    let rows = tidy_rows(run);
+    for (id, name) in [
+        ("SG-001", "Łucja Nguyễn-Øberg"),
+        ("SG-003", "Ana-Lucía Ferreira"),
+    ] {
+        let pages = pdf_pages(&run.bytes(&format!("participants/{id}.pdf")));
+        let n = pages.len();
+        assert!((2..=6).contains(&n), "{id}: {n} pages");
+        let all = pages.concat();
+        assert!(all.contains(name), "{id}: name {name} not in the text");
+        let row = rows.iter().find(|r| r["participant_id"] == id).unwrap();
+        let current = fmt::weight(
+            num(row, "trend.current_weight_kg").unwrap(),
+            UnitSystem::Metric,
+        );
+        let change = format!(
+            "{} ({})",
+            fmt::weight_change(num(row, "outcomes.change_kg").unwrap(), UnitSystem::Metric),
+            fmt::percent_change(num(row, "outcomes.change_percent").unwrap())
+        );
+        assert!(all.contains(&current), "{id}: {current} not in the PDF");
+        assert!(all.contains(&change), "{id}: {change} not in the PDF");
+        for (i, p) in pages.iter().enumerate() {
+            assert!(
+                p.contains("Steady Ground 2026 · September 2026"),
+                "{id} page {}: header",
+                i + 1
+            );
+            assert!(
+                p.contains(&format!("Private · participant {id}")),
+                "{id} page {}: footer",
+                i + 1
+            );
+            assert!(
+                p.contains(&format!("page {} of {n}", i + 1)),
+                "{id} page {}: page number",
+                i + 1
+            );
+        }
+        let doc = lopdf::Document::load_mem(&run.bytes(&format!("participants/{id}.pdf"))).unwrap();
+        let info = doc
+            .trailer
+            .get_deref(b"Info", &doc)
+            .and_then(|o| o.as_dict())
+            .unwrap();
+        let title = lopdf::decode_text_string(info.get(b"Title").unwrap()).unwrap();
+        assert_eq!(title, format!("{name} · September 2026"));
+    }
+}
+
+#[test]
+fn group_pdf_has_the_whole_program_and_no_names() {
+    let run = sample_run();
+    let pages = pdf_pages(&run.bytes("group/program.pdf"));
+    let n = pages.len();
+    assert!((3..=14).contains(&n), "{n} pages");
+    for (i, p) in pages.iter().enumerate() {
+        assert!(p.contains("Steady Ground 2026 · September 2026"));
+        assert!(p.contains("De-identified group report"));
+        assert!(p.contains(&format!("page {} of {n}", i + 1)));
+    }
+    // Table cells wrap: compare with runs of white space made single spaces.
+    let all = pages
+        .concat()
+        .split_whitespace()
+        .collect::<Vec<_>>()
+        .join(" ");
+    for s in [
+        "Group summary",
+        "Whole program",
+        "Site: Harbour Depot",
+        "Site: Kiln Row",
+        "Site: North Office",
+        "Intention-to-treat, baseline carried forward",
+    ] {
+        assert!(all.contains(s), "{s}");
+    }
+    // No participant name or id anywhere.
+    for row in tidy_rows(run) {
+        let id = &row["participant_id"];
+        assert!(!all.contains(id.as_str()), "{id} appears in the group PDF");
+        let profile =
+            std::fs::read_to_string(run.prog.dir.join(format!("participants/{id}/profile.yaml")))
+                .unwrap();
+        if let Some(name) = profile
+            .lines()
+            .find_map(|l| l.strip_prefix("name: "))
+            .map(|n| n.trim_matches('"'))
+        {
+            assert!(!all.contains(name), "{name} appears in the group PDF");
+        }
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// 4. Safety
+// ---------------------------------------------------------------------------------------------
+
+/// Asserts that `html` can load nothing from outside itself.
+fn assert_self_contained(what: &str, html: &str) {
+    let lower = html.to_ascii_lowercase();
+    for banned in [
+        "<script", "<link", "@import", "<iframe", "<img", "<object", "<embed", "<base",
+    ] {
+        assert!(!lower.contains(banned), "{what}: contains {banned}");
+    }
+    // Every attribute or CSS reference that could load something must be a local anchor.
+    for attr in ["src=", "href=", "url(", "srcset=", "action=", "poster="] {
+        for (i, _) in lower.match_indices(attr) {
+            let value = lower[i + attr.len()..].trim_start_matches(['"', '\'', ' ']);
+            assert!(
+                value.starts_with('#'),
+                "{what}: {attr} points at `{}`",
+                &value[..value.len().min(60)]
+            );
+        }
+    }
+    // And no URL hidden anywhere else (the SVG namespace is a name, not a request).
+    let without_ns = lower
+        .replace("xmlns=\"http://www.w3.org/2000/svg\"", "")
+        .replace("xmlns:xlink=\"http://www.w3.org/1999/xlink\"", "");
+    for scheme in ["http://", "https://", "ftp://", "file:"] {
+        assert!(!without_ns.contains(scheme), "{what}: contains {scheme}");
+    }
+}
+
+#[test]
+fn html_reports_make_no_external_request() {
+    let run = sample_run();
+    let dir = run.out().join("participants");
+    let mut checked = 0;
+    for entry in std::fs::read_dir(&dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().is_some_and(|e| e == "html") {
+            assert_self_contained(
+                &path.display().to_string(),
+                &std::fs::read_to_string(&path).unwrap(),
+            );
+            checked += 1;
+        }
+    }
+    assert_eq!(checked, 48);
+    assert_self_contained("group/program.html", &run.read("group/program.html"));
+}
+
+#[test]
+fn a_script_tag_as_a_name_is_escaped_in_html_and_plain_text_in_pdf() {
+    let run = small_run();
+    let name = "<script>alert(1)</script>";
+    let html = run.read("participants/SG-900.html");
+    assert_self_contained("SG-900.html", &html);
+    assert!(html.contains("<h1>&lt;script&gt;alert(1)&lt;/script&gt;</h1>"));
+    assert!(html.contains("<title>&lt;script&gt;alert(1)&lt;/script&gt; · "));
+    assert!(!html.contains(name));
+    let pages = pdf_pages(&run.bytes("participants/SG-900.pdf"));
+    assert!(pages[0].contains(name), "{}", &pages[0][..200]);
+    assert!(!pages.concat().contains("&lt;"));
+    // The group report never names anyone, escaped or not.
+    let group = run.read("group/program.html");
+    assert!(!group.contains("alert(1)"));
+}
+
+#[test]
+fn built_in_templates_never_print_raw_values() {
+    let mut n = 0;
+    for entry in walkdir::WalkDir::new(repo_root().join("report-templates")) {
+        let entry = entry.unwrap();
+        if entry.path().extension().is_some_and(|e| e == "hbs") {
+            let text = std::fs::read_to_string(entry.path()).unwrap();
+            assert!(
+                !text.contains("{{{"),
+                "{} uses {{{{{{",
+                entry.path().display()
+            );
+            assert!(
+                !text.contains("{{&"),
+                "{} uses {{{{&",
+                entry.path().display()
+            );
+            n += 1;
+        }
+    }
+    assert_eq!(n, BUILTIN.len(), "every template file is compiled in");
+}
+
+#[test]
+fn chart_helper_refuses_anything_but_a_drawn_chart() {
+    let dir = tempfile::tempdir().unwrap();
+    let ctx = serde_json::json!({"headline": "<b>bold</b>", "charts_like": {"weight": "<i>"}});
+    let mut charts = serde_json::Map::new();
+    charts.insert("weight".into(), "<svg>ok</svg>".into());
+    for (template, missing) in [
+        ("{{chart \"headline\"}}", "headline"),
+        ("{{chart headline}}", "<b>bold</b>"),
+        ("{{chart \"charts_like\"}}", "charts_like"),
+    ] {
+        std::fs::write(dir.path().join("participant.html.hbs"), template).unwrap();
+        let set = TemplateSet::with_overrides(Some(dir.path())).unwrap();
+        let err = set
+            .render("participant.html", &ctx, charts.clone())
+            .expect_err(template)
+            .to_string();
+        assert!(
+            err.contains(&format!("no chart named `{missing}`")),
+            "{template}: {err}"
+        );
+    }
+    std::fs::write(
+        dir.path().join("participant.html.hbs"),
+        "{{chart \"weight\"}}",
+    )
+    .unwrap();
+    let set = TemplateSet::with_overrides(Some(dir.path())).unwrap();
+    assert_eq!(
+        set.render("participant.html", &ctx, charts).unwrap(),
+        "<svg>ok</svg>"
+    );
+}
+
+#[test]
+fn a_misspelt_field_in_an_override_fails_the_run_naming_template_and_line() {
+    let prog = ProgramTest::fixture("report-small");
+    let dump = prog.run(&["templates", "dump", "{dir}/templates"]);
+    assert_eq!(dump.code, 0, "{}", dump.stderr);
+    let path = prog.dir.join("templates/participant.html.hbs");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let line = text
+        .lines()
+        .position(|l| l.contains("{{headline}}"))
+        .expect("the template prints the headline")
+        + 1;
+    std::fs::write(&path, text.replace("{{headline}}", "{{headlin}}")).unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 6, "{}", out.stderr);
+    assert!(out.stderr.contains("participant.html"), "{}", out.stderr);
+    assert!(
+        out.stderr.contains(&format!("line {line}")),
+        "line {line}: {}",
+        out.stderr
+    );
+    assert!(out.stderr.contains("headlin"), "{}", out.stderr);
+    // Nothing was published.
+    assert!(!prog.dir.join("reports/participants").exists());
+}
+
+#[test]
+fn overriding_one_template_leaves_the_others_built_in() {
+    let prog = ProgramTest::fixture("report-small");
+    std::fs::create_dir(prog.dir.join("templates")).unwrap();
+    let own = BUILTIN
+        .iter()
+        .find(|(n, _)| *n == "participant.html.hbs")
+        .unwrap()
+        .1
+        .replace("<main>", "<main><p>OVERRIDE-MARKER-7731</p>");
+    std::fs::write(prog.dir.join("templates/participant.html.hbs"), own).unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let base = small_run();
+    for id in ["SG-003", "SG-007", "SG-018", "SG-900"] {
+        let rel = format!("reports/participants/{id}.html");
+        let html = std::fs::read_to_string(prog.dir.join(&rel)).unwrap();
+        assert!(html.contains("<p>OVERRIDE-MARKER-7731</p>"), "{id}");
+        assert_eq!(
+            html.replace("<p>OVERRIDE-MARKER-7731</p>", ""),
+            base.read(&format!("participants/{id}.html"))
+        );
+    }
+    assert_eq!(
+        std::fs::read_to_string(prog.dir.join("reports/group/program.html")).unwrap(),
+        base.read("group/program.html"),
+        "the group report is unchanged"
+    );
+}
+
+#[test]
+fn partials_that_include_each_other_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::create_dir(dir.path().join("partials")).unwrap();
+    std::fs::write(dir.path().join("partials/a.hbs"), "A {{> b}}").unwrap();
+    std::fs::write(dir.path().join("partials/b.hbs"), "B {{> a}}").unwrap();
+    let err = TemplateSet::with_overrides(Some(dir.path()))
+        .err()
+        .expect("cycle refused")
+        .to_string();
+    assert!(err.contains("loop"), "{err}");
+    assert!(
+        err.contains("a → b → a") || err.contains("b → a → b"),
+        "{err}"
+    );
+    // And through the binary: the run stops before writing anything.
+    let prog = ProgramTest::fixture("report-small");
+    std::fs::create_dir_all(prog.dir.join("templates/partials")).unwrap();
+    std::fs::write(prog.dir.join("templates/partials/kv.hbs"), "{{> table}}").unwrap();
+    std::fs::write(prog.dir.join("templates/partials/table.hbs"), "{{> kv}}").unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 6, "{}", out.stderr);
+    assert!(out.stderr.contains("loop"), "{}", out.stderr);
+}
+
+#[cfg(unix)]
+#[test]
+fn a_symlink_in_the_template_folder_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let secret = dir.path().join("secret.txt");
+    std::fs::write(&secret, "not a template").unwrap();
+    let t = dir.path().join("templates");
+    std::fs::create_dir(&t).unwrap();
+    std::os::unix::fs::symlink(&secret, t.join("participant.html.hbs")).unwrap();
+    let err = TemplateSet::with_overrides(Some(&t))
+        .err()
+        .expect("symlink refused")
+        .to_string();
+    assert!(err.contains("symbolic links are not allowed"), "{err}");
+    assert!(err.contains("participant.html.hbs"), "{err}");
+}
+
+#[test]
+fn templates_dump_writes_every_built_in_and_never_overwrites() {
+    let prog = ProgramTest::fixture("report-small");
+    let out = prog.run(&["templates", "dump", "{dir}/t"]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    for (name, text) in BUILTIN {
+        assert_eq!(
+            &std::fs::read_to_string(prog.dir.join("t").join(name)).unwrap(),
+            text,
+            "{name}"
+        );
+    }
+    let mine = prog.dir.join("t/participant.html.hbs");
+    std::fs::write(&mine, "my own").unwrap();
+    let again = prog.run(&["templates", "dump", "{dir}/t"]);
+    assert_eq!(again.code, 0, "{}", again.stderr);
+    assert_eq!(std::fs::read_to_string(&mine).unwrap(), "my own");
+    assert!(again.stderr.contains("skipped"), "{}", again.stderr);
+    assert!(
+        again.stdout.contains("wrote 0 template files"),
+        "{}",
+        again.stdout
+    );
+}
+
+// ---------------------------------------------------------------------------------------------
+// 5. Agreement with the tidy metrics
+// ---------------------------------------------------------------------------------------------
+
+#[test]
+fn every_participant_report_shows_the_tidy_figures() {
+    let run = sample_run();
+    let rows = tidy_rows(run);
+    assert_eq!(rows.len(), 48);
+    for row in &rows {
+        let id = &row["participant_id"];
+        let html = run.read(&format!("participants/{id}.html"));
+        let kg = num(row, "trend.current_weight_kg")
+            .or_else(|| num(row, "outcomes.current_weight_kg"))
+            .unwrap_or_else(|| panic!("{id}: no current weight"));
+        assert_eq!(
+            kv_value(&html, "Current weight (trend)").map(|v| unescape(&v)),
+            Some(fmt::weight(kg, UnitSystem::Metric)),
+            "{id}"
+        );
+        let expected_change = format!(
+            "{} ({})",
+            fmt::weight_change(num(row, "outcomes.change_kg").unwrap(), UnitSystem::Metric),
+            fmt::percent_change(num(row, "outcomes.change_percent").unwrap())
+        );
+        assert_eq!(
+            kv_value(&html, "Change since start").map(|v| unescape(&v)),
+            Some(expected_change),
+            "{id}"
+        );
+    }
+}
+
+#[test]
+fn group_itt_n_is_the_number_of_started_participants() {
+    let run = sample_run();
+    let started = tidy_rows(run)
+        .iter()
+        .filter(|r| num(r, "outcomes.baseline_weight_kg").is_some())
+        .count();
+    assert!(started >= 11, "enough to be shown");
+    let html = run.read("group/program.html");
+    let whole = &html[html.find("id=\"program\"").unwrap()..];
+    let whole = &whole[..whole.find("</section>").unwrap()];
+    assert!(
+        whole.contains(&format!(
+            "<td>Intention-to-treat, baseline carried forward</td><td>{started}</td>"
+        )),
+        "ITT n {started} not in the whole-program section"
+    );
+    assert!(whole.contains(&format!(
+        "<td>Started (baseline weight recorded)</td><td>{started}</td>"
+    )));
+    // The run log agrees on how many were reported.
+    assert!(
+        run.outcome
+            .stderr
+            .contains(&format!("{started} participants reported")),
+        "{}",
+        run.outcome.stderr
+    );
+}
