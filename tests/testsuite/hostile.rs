@@ -136,7 +136,7 @@ fn names_cannot_inject_html_and_ids_cannot_escape_the_output_folder() {
 /// mapping indented by `indent` spaces.
 fn alias_bomb(indent: usize) -> String {
     let pad = " ".repeat(indent);
-    let lols = vec!["\"lol\""; 9].join(",");
+    let lols = ["\"lol\""; 9].join(",");
     let mut text = format!("{pad}a: &a [{lols}]\n");
     let names = ["a", "b", "c", "d", "e", "f", "g", "h", "i"];
     for w in names.windows(2) {
