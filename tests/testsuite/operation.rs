@@ -470,3 +470,41 @@ fn three_shards_merged_equal_a_single_run() {
     assert_eq!(m.code, 2, "{}", m.stderr);
     assert!(m.stderr.contains("of a different run"), "{}", m.stderr);
 }
+
+/// `examples/slurm-array.sh` as Slurm would run it (eight array tasks, then the merge job, with
+/// the variables Slurm sets), on the real binary: the merged output equals a single run.
+#[test]
+fn the_slurm_example_runs_shards_and_merges_to_a_single_runs_output() {
+    let t = demo(12);
+    let runs = t.dir.parent().unwrap().join("runs");
+    let script = crate::harness::repo_root().join("examples/slurm-array.sh");
+    let bin_dir = Path::new(BIN).parent().unwrap();
+    let path = format!(
+        "{}:{}",
+        bin_dir.display(),
+        std::env::var("PATH").unwrap_or_default()
+    );
+    let task = |extra: &[(&str, &str)]| {
+        let out = Command::new("bash")
+            .arg(&script)
+            .env_clear()
+            .env("PATH", &path)
+            .env("PROGRAM", &t.dir)
+            .env("PERIOD", "2026-09")
+            .env("AS_OF", AS_OF)
+            .env("RUNS", &runs)
+            .env("SLURM_CPUS_PER_TASK", "1")
+            .envs(extra.iter().copied())
+            .stdin(Stdio::null())
+            .output()
+            .unwrap();
+        assert!(out.status.success(), "{out:?}");
+    };
+    for k in 1..=8 {
+        task(&[("SLURM_ARRAY_TASK_ID", &k.to_string())]);
+    }
+    task(&[("MERGE", "1")]);
+    let single = out(&t, "single");
+    assert_eq!(run(&t, &single, &["--period", "2026-09"]).code, 0);
+    assert_same_tree(&single, &runs.join("2026-09/reports").to_string_lossy());
+}
