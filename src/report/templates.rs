@@ -122,9 +122,21 @@ impl TemplateSet {
         if let serde_json::Value::Object(m) = &mut value {
             m.insert("charts".into(), serde_json::Value::Object(charts));
         }
-        self.hb
-            .render(name, &value)
-            .map_err(|e| RenderError::Template(e.to_string()))
+        self.hb.render(name, &value).map_err(|e| {
+            // Name the file the failing template came from: a program's own override is
+            // usually the one to fix. (An error inside a partial names the partial.)
+            let failing = e.template_name.clone().unwrap_or_else(|| name.to_string());
+            let source = self
+                .sources
+                .iter()
+                .find(|(file, _)| {
+                    let key = file.trim_end_matches(".hbs");
+                    key.strip_prefix("partials/").unwrap_or(key) == failing
+                })
+                .map(|(_, src)| src.clone())
+                .unwrap_or_else(|| "built-in".into());
+            RenderError::Template(format!("{e} (from {source})"))
+        })
     }
 }
 

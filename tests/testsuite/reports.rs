@@ -674,6 +674,12 @@ fn a_misspelt_field_in_an_override_fails_the_run_naming_template_and_line() {
         out.stderr
     );
     assert!(out.stderr.contains("headlin"), "{}", out.stderr);
+    // The file to fix is named too.
+    assert!(
+        out.stderr.contains("templates/participant.html.hbs"),
+        "{}",
+        out.stderr
+    );
     // Nothing was published.
     assert!(!prog.dir.join("reports/participants").exists());
 }
