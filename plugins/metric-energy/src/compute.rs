@@ -657,7 +657,9 @@ pub(crate) fn run(
         points: forecast_points,
     });
 
-    out.tables.push(weekly_table(&p, &s, enrolled, to));
+    // After a withdrawal there are no habits to estimate: the weekly table stops there.
+    let weekly_to = data.profile.withdrew.map_or(to, |w| w.min(to));
+    out.tables.push(weekly_table(&p, &s, enrolled, weekly_to));
     out.tables
         .push(options_table(&p, &s, bw_cur, slope, implied));
     out.tables.push(plateau_table(&p, &s, enrolled));
@@ -845,8 +847,8 @@ fn options_table(
         (
             "no",
             format!(
-                "It would bring intake to about {new_intake:.0} kcal/d, below {floor:.0} kcal/d; \
-                 intakes that low need clinical supervision (common practice)."
+                "It would bring intake to about {new_intake:.0} kcal a day, below {floor:.0} kcal \
+                 a day; intakes that low need a clinician's supervision."
             ),
         )
     } else if already {
@@ -889,7 +891,7 @@ fn options_table(
             "no",
             format!(
                 "It would take about {minutes:.0} minutes of walking a day, more than \
-                 {MAX_WALK_MIN:.0} (common practice cap); combine with a smaller intake change."
+                 {MAX_WALK_MIN:.0}; combine a shorter walk with a smaller change in intake."
             ),
         )
     } else if already {
