@@ -158,6 +158,9 @@ impl fmt::Display for Diagnostic {
 
 /// Counts of errors and warnings in a list of diagnostics.
 pub fn count(diags: &[Diagnostic]) -> (usize, usize) {
-    let errors = diags.iter().filter(|d| d.severity == Severity::Error).count();
+    let errors = diags
+        .iter()
+        .filter(|d| d.severity == Severity::Error)
+        .count();
     (errors, diags.len() - errors)
 }

@@ -23,13 +23,31 @@ pub const INTERNAL: i32 = 70;
 
 /// One line per code, for `--help` and the README.
 pub const TABLE: &[(i32, &str)] = &[
-    (SUCCESS, "clean: every input was usable and every output was written"),
-    (WARNINGS, "done, with warnings about some inputs (values dropped or suspicious)"),
+    (
+        SUCCESS,
+        "clean: every input was usable and every output was written",
+    ),
+    (
+        WARNINGS,
+        "done, with warnings about some inputs (values dropped or suspicious)",
+    ),
     (USAGE, "the command line was wrong"),
-    (PROGRAM_INVALID, "program.yaml or the program folder is invalid; nothing was computed"),
-    (PARTICIPANT_ERRORS, "some participants had errors and were left out; the others were processed"),
-    (MODULE_FAILED, "a metric module failed for some participants; the rest of the run went on"),
-    (OUTPUT_FAILED, "writing outputs failed; previous outputs were left intact"),
+    (
+        PROGRAM_INVALID,
+        "program.yaml or the program folder is invalid; nothing was computed",
+    ),
+    (
+        PARTICIPANT_ERRORS,
+        "some participants had errors and were left out; the others were processed",
+    ),
+    (
+        MODULE_FAILED,
+        "a metric module failed for some participants; the rest of the run went on",
+    ),
+    (
+        OUTPUT_FAILED,
+        "writing outputs failed; previous outputs were left intact",
+    ),
     (LOCKED, "another run holds the lock on the output folder"),
     (INTERNAL, "internal error (a bug)"),
 ];

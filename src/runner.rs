@@ -859,7 +859,7 @@ pub fn summary_row(
         activity_minutes_per_week: adherence.and_then(|a| a.scalar("activity_minutes_per_week")),
         weigh_ins_per_week: adherence.and_then(|a| a.scalar("weigh_ins_per_week")),
         food_log_days_per_week: adherence.and_then(|a| a.scalar("food_log_days_per_week")),
-        attendance_percent: adherence.and_then(|a| a.scalar("attendance_percent")),
+        attendance_percent: adherence.and_then(|a| a.scalar("attendance_to_date_percent")),
         in_plateau,
         clinical_flags,
     }

@@ -81,7 +81,9 @@ impl TargetsDef {
     /// Applies the keys given here on top of `base`.
     pub fn apply(&self, base: &cohortpress_metric_api::Targets) -> cohortpress_metric_api::Targets {
         cohortpress_metric_api::Targets {
-            weight_change_percent: self.weight_change_percent.unwrap_or(base.weight_change_percent),
+            weight_change_percent: self
+                .weight_change_percent
+                .unwrap_or(base.weight_change_percent),
             activity_minutes_per_week: self
                 .activity_minutes_per_week
                 .unwrap_or(base.activity_minutes_per_week),
@@ -195,7 +197,9 @@ fn default_min_cell() -> u32 {
 
 impl Default for PrivacyDef {
     fn default() -> Self {
-        PrivacyDef { min_cell_size: default_min_cell() }
+        PrivacyDef {
+            min_cell_size: default_min_cell(),
+        }
     }
 }
 
@@ -221,7 +225,10 @@ fn default_delimiter() -> char {
 
 impl Default for InputDef {
     fn default() -> Self {
-        InputDef { date_format: default_date_format(), delimiter: default_delimiter() }
+        InputDef {
+            date_format: default_date_format(),
+            delimiter: default_delimiter(),
+        }
     }
 }
 

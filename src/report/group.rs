@@ -307,7 +307,7 @@ fn fill(
                 ),
             ],
             vec![
-                "Session attendance".into(),
+                "Session attendance since enrolment".into(),
                 median_with_n(
                     num(&a.attendance_percent.median, 0, " %"),
                     &a.attendance_percent.n,

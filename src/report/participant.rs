@@ -530,6 +530,11 @@ fn option_view(t: &Table, r: &[Cell]) -> OptionView {
             "Walk about {} minutes more a day at an easy pace (about 3 mph / 5 km/h)",
             fmt::fixed(change.abs(), 0)
         ),
+        "combined" => format!(
+            "Eat less, down to about {} a day, and walk about {} minutes more a day",
+            fmt::kcal(cell_num(t, r, "resulting_intake_kcal_per_day").unwrap_or(0.0)),
+            fmt::fixed(change.abs(), 0)
+        ),
         other => format!("{other}: {}", fmt::fixed(change, 0)),
     };
     OptionView {

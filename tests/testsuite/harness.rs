@@ -60,8 +60,10 @@ impl ProgramTest {
     /// Runs `cohortpress ARGS…` with the program folder as working directory. `{dir}` in an
     /// argument is replaced by the program folder.
     pub fn run(&self, args: &[&str]) -> Outcome {
-        let args: Vec<String> =
-            args.iter().map(|a| a.replace("{dir}", &self.dir.to_string_lossy())).collect();
+        let args: Vec<String> = args
+            .iter()
+            .map(|a| a.replace("{dir}", &self.dir.to_string_lossy()))
+            .collect();
         let out = Command::new(env!("CARGO_BIN_EXE_cohortpress"))
             .args(&args)
             .current_dir(&self.dir)
@@ -105,7 +107,12 @@ pub fn tree_hashes(dir: &Path) -> Vec<(String, String)> {
         if entry.file_type().is_file() {
             let bytes = std::fs::read(entry.path()).unwrap();
             v.push((
-                entry.path().strip_prefix(dir).unwrap().to_string_lossy().into_owned(),
+                entry
+                    .path()
+                    .strip_prefix(dir)
+                    .unwrap()
+                    .to_string_lossy()
+                    .into_owned(),
                 blake3::hash(&bytes).to_hex().to_string(),
             ));
         }

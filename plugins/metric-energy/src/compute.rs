@@ -914,6 +914,42 @@ fn options_table(
         text(feasible),
         text(reason),
     ]);
+
+    // When eating less alone would go below the floor, the practical answer is both: eat less
+    // down to the floor and walk off the rest (same model terms as the two rows above).
+    if !too_fast && !already && new_intake < floor && kcal_per_min > 0.0 {
+        let cut = (imp.value - floor).max(0.0);
+        let rest_kcal = (-d_ei - cut).max(0.0);
+        let rest_minutes = (1.0 - BETA) * rest_kcal / kcal_per_min;
+        let (feasible, reason) = if rest_minutes > MAX_WALK_MIN {
+            (
+                "no",
+                format!(
+                    "Even with intake at {floor:.0} kcal a day it would take about \
+                     {rest_minutes:.0} minutes of walking a day; a slower target rate is more \
+                     realistic."
+                ),
+            )
+        } else {
+            (
+                "yes",
+                format!(
+                    "Eating about {cut:.0} kcal a day less (down to {floor:.0}) and walking about \
+                     {rest_minutes:.0} minutes more a day together restore a loss of {:.2} \
+                     kg/week.",
+                    s.target_loss
+                ),
+            )
+        };
+        t.rows.push(vec![
+            text("combined"),
+            num(Some(rest_minutes)),
+            text("min/d"),
+            num(Some(floor.min(imp.value))),
+            text(feasible),
+            text(reason),
+        ]);
+    }
     t
 }
 

@@ -362,6 +362,26 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
     // Walking 0.9 kg/week at 60 kg would take far more than two hours a day.
     assert_eq!(cell_text(opt, 1, "feasible"), "no");
     assert!(cell_num(opt, 1, "change_per_day").unwrap() > 120.0);
+    // The combined row: intake down to the floor, the rest by walking. Its minutes are the
+    // walking-only minutes scaled by the share of the intake change left after the cut.
+    assert_eq!(cell_text(opt, 2, "kind"), "combined");
+    assert_eq!(
+        cell_num(opt, 2, "resulting_intake_kcal_per_day"),
+        Some(1200.0)
+    );
+    let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
+    let full_cut = -cell_num(opt, 0, "change_per_day").unwrap();
+    let walk_only = cell_num(opt, 1, "change_per_day").unwrap();
+    let expected = walk_only * (full_cut - (imp - 1200.0)) / full_cut;
+    let combined = cell_num(opt, 2, "change_per_day").unwrap();
+    assert!(
+        (combined - expected).abs() < 1e-6,
+        "{combined} vs {expected}"
+    );
+    assert_eq!(
+        cell_text(opt, 2, "feasible"),
+        if combined > 120.0 { "no" } else { "yes" }
+    );
 
     // A target above the safe maximum is refused whatever the numbers.
     c.settings = EnergyModule
