@@ -15,7 +15,31 @@ use serde::de::DeserializeOwned;
 // A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
 #[allow(clippy::result_large_err)]
 pub fn from_str<T: DeserializeOwned>(text: &str, file: &str) -> Result<T, Diagnostic> {
-    serde_yaml::from_str(text).map_err(|e| to_diagnostic(&e, file))
+    serde_yaml::from_str(text).map_err(|e| {
+        let mut d = to_diagnostic(&e, file);
+        // serde_yaml gives no position for "more than one document": point at the separator
+        // that starts the second one.
+        if d.line.is_none() && d.message.contains("more than one document") {
+            d.line = second_document_line(text);
+        }
+        d
+    })
+}
+
+/// 1-based line of the `---` (or `...`) marker that ends the first document, if any.
+fn second_document_line(text: &str) -> Option<u64> {
+    let mut seen_content = false;
+    for (i, line) in text.lines().enumerate() {
+        let t = line.trim_end();
+        if t == "---" || t.starts_with("--- ") || t == "..." {
+            if seen_content {
+                return Some(i as u64 + 1);
+            }
+        } else if !t.trim_start().is_empty() && !t.trim_start().starts_with('#') {
+            seen_content = true;
+        }
+    }
+    None
 }
 
 /// Parses `text` into an untyped YAML value (for module settings).
@@ -210,6 +234,18 @@ mod tests {
         let d = from_str::<Outer>("name: a\n", "x.yaml").unwrap_err();
         assert!(d.message.contains("missing field `inner`"), "{d}");
         assert_eq!(d.hint.as_deref(), Some("add `inner:` with a value"));
+    }
+
+    #[test]
+    fn a_second_document_is_located_at_its_separator() {
+        #[derive(Debug, serde::Deserialize)]
+        struct P {
+            #[allow(dead_code)]
+            a: u32,
+        }
+        let d = from_str::<P>("a: 1\n---\na: 2\n", "x.yaml").unwrap_err();
+        assert!(d.message.contains("more than one document"), "{d}");
+        assert_eq!(d.line, Some(2));
     }
 
     #[test]
