@@ -325,6 +325,8 @@ pub struct TidyRecord {
     flags: Vec<(String, cohortpress_metric_api::Flag)>,
     failures: Vec<(String, String)>,
     weekly_rows: Vec<[String; 8]>,
+    #[serde(default)]
+    table_rows: Vec<[String; 7]>,
 }
 
 impl TidyRecord {
@@ -354,6 +356,7 @@ impl TidyRecord {
             flags: t.flags.clone(),
             failures: t.failures.clone(),
             weekly_rows: t.weekly_rows.clone(),
+            table_rows: t.table_rows.clone(),
         }
     }
 
@@ -383,6 +386,7 @@ impl TidyRecord {
             flags: self.flags.clone(),
             failures: self.failures.clone(),
             weekly_rows: self.weekly_rows.clone(),
+            table_rows: self.table_rows.clone(),
         }
     }
 }

@@ -24,6 +24,10 @@ pub struct TidyParticipant {
     /// lower, upper), rendered once so a stored partial result reproduces them exactly.
     #[serde(skip)]
     pub weekly_rows: Vec<[String; 8]>,
+    /// Rows of `metrics/tables.csv` (participant, module, table, row, column, unit, value),
+    /// every module table in long form, rendered once like the weekly rows.
+    #[serde(skip)]
+    pub table_rows: Vec<[String; 7]>,
     /// Flags by module.
     pub flags: Vec<(String, Flag)>,
     /// Module failures (module, message).
@@ -42,6 +46,7 @@ pub fn participant(
         scalars: Vec::new(),
         texts: Vec::new(),
         weekly_rows: Vec::new(),
+        table_rows: Vec::new(),
         flags: Vec::new(),
         failures: results
             .failures
@@ -68,6 +73,26 @@ pub fn participant(
                 ]
             }));
         }
+        for table in &out.tables {
+            for (i, row) in table.rows.iter().enumerate() {
+                for (col, cell) in table.columns.iter().zip(row) {
+                    let value = match cell {
+                        cohortpress_metric_api::Cell::Number(x) => num(Some(*x)),
+                        cohortpress_metric_api::Cell::Text(s) => s.clone(),
+                        cohortpress_metric_api::Cell::Empty => String::new(),
+                    };
+                    t.table_rows.push([
+                        data.profile.id.clone(),
+                        module.clone(),
+                        table.name.clone(),
+                        (i + 1).to_string(),
+                        col.name.clone(),
+                        col.unit.clone(),
+                        value,
+                    ]);
+                }
+            }
+        }
         t.flags
             .extend(out.flags.iter().map(|s| (module.clone(), s.clone())));
     }
@@ -83,6 +108,7 @@ fn num(v: Option<f64>) -> String {
 }
 
 /// Renders `metrics/participants.csv`, `metrics/participants.json`, `metrics/weekly.csv`,
+/// `metrics/tables.csv`,
 /// `metrics/data-quality.csv` and `metrics/group.json`.
 pub fn render(
     plan: &RunPlan,
@@ -226,6 +252,23 @@ pub fn render(
         }
     }
     files.push(("metrics/weekly.csv".to_string(), w.into_inner()?));
+
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record([
+        "participant_id",
+        "module",
+        "table",
+        "row",
+        "column",
+        "unit",
+        "value",
+    ])?;
+    for r in &rows {
+        for row in &r.table_rows {
+            w.write_record(row)?;
+        }
+    }
+    files.push(("metrics/tables.csv".to_string(), w.into_inner()?));
 
     let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record([

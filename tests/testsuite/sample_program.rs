@@ -95,6 +95,27 @@ fn sample_program_runs_end_to_end() {
         gaps.len()
     );
 
+    // Module tables in long form: plateaus are assessed, and the sample's adherence drift
+    // (by design the commonest story in it) shows as intake drift more often than not.
+    let (_, tables) = read_csv(&reports.join("metrics/tables.csv"));
+    let readings: Vec<&str> = tables
+        .iter()
+        .filter(|t| t["table"] == "plateau_assessment" && t["column"] == "classification")
+        .map(|t| t["value"].as_str())
+        .collect();
+    let drift = readings.iter().filter(|r| **r == "intake_drift").count();
+    assert!(readings.len() >= 10, "{} plateau readings", readings.len());
+    assert!(
+        drift * 2 > readings.len(),
+        "{drift} of {} readings are intake drift",
+        readings.len()
+    );
+    assert!(
+        tables
+            .iter()
+            .any(|t| t["table"] == "options" && t["column"] == "kind")
+    );
+
     // Every planted defect is in the data-quality list with its file and line.
     let (_, dq) = read_csv(&reports.join("metrics/data-quality.csv"));
     for (file, line) in [
