@@ -459,8 +459,8 @@ fn draw_line_chart<DB: DrawingBackend>(
         }
     }
     if x0 == x1 {
-        x0 = x0 - Duration::days(3);
-        x1 = x1 + Duration::days(3);
+        x0 -= Duration::days(3);
+        x1 += Duration::days(3);
     }
 
     let ys = c
@@ -970,6 +970,6 @@ mod tests {
         assert_eq!(fmt_num(72.50, 2), "72.5");
         assert_eq!(fmt_num(80.0, 2), "80");
         assert_eq!(fmt_num(-0.001, 1), "0");
-        assert_eq!(fmt_num(3.14159, 1), "3.1");
+        assert_eq!(fmt_num(91.349, 1), "91.3");
     }
 }

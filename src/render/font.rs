@@ -59,6 +59,22 @@ pub(crate) struct FaceMetrics {
     template: printpdf::ParsedFont,
 }
 
+/// Tables kept in a subset: what ISO 32000-1 (9.9) asks of an embedded TrueType program (head,
+/// hhea, loca, glyf, hmtx, maxp, and cvt/fpgm/prep for hinting) plus small cmap and post tables.
+/// allsorts' own PDF profile also keeps `name`, 15 KB per face of copyright strings that no
+/// viewer reads from an embedded font.
+const PDF_TABLES: [u32; 9] = [
+    allsorts::tag::CMAP,
+    allsorts::tag::HEAD,
+    allsorts::tag::CVT,
+    allsorts::tag::FPGM,
+    allsorts::tag::HHEA,
+    allsorts::tag::HMTX,
+    allsorts::tag::MAXP,
+    allsorts::tag::POST,
+    allsorts::tag::PREP,
+];
+
 static REGULAR: OnceLock<FaceMetrics> = OnceLock::new();
 static BOLD: OnceLock<FaceMetrics> = OnceLock::new();
 
@@ -175,9 +191,13 @@ impl FaceMetrics {
         let provider = font_file
             .table_provider(0)
             .map_err(|e| format!("reading embedded font tables: {e}"))?;
-        let bytes =
-            allsorts::subset::subset(&provider, &ids, &SubsetProfile::Pdf, CmapTarget::Unicode)
-                .map_err(|e| format!("subsetting {}: {e}", self.face.postscript_name()))?;
+        let bytes = allsorts::subset::subset(
+            &provider,
+            &ids,
+            &SubsetProfile::Custom(PDF_TABLES.to_vec()),
+            CmapTarget::Unicode,
+        )
+        .map_err(|e| format!("subsetting {}: {e}", self.face.postscript_name()))?;
 
         let mut codepoint_to_glyph = BTreeMap::new();
         let mut glyph_widths = BTreeMap::new();

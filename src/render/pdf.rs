@@ -160,6 +160,15 @@ fn push_text(
     if s.is_empty() {
         return;
     }
+    // Control characters have no glyph; show them as spaces.
+    let s: std::borrow::Cow<'_, str> = if s.chars().any(char::is_control) {
+        s.chars()
+            .map(|c| if c.is_control() { ' ' } else { c })
+            .collect::<String>()
+            .into()
+    } else {
+        s.into()
+    };
     ops.extend([
         Op::StartTextSection,
         Op::SetFont {
@@ -171,7 +180,7 @@ fn push_text(
             matrix: TextMatrix::Translate(Pt(r2(x)), Pt(r2(baseline))),
         },
         Op::ShowText {
-            items: vec![TextItem::Text(s.to_string())],
+            items: vec![TextItem::Text(s.into_owned())],
         },
         Op::EndTextSection,
     ]);
@@ -416,6 +425,10 @@ impl Layout {
         let lh = BODY * LEADING;
         for item in items {
             let lines = wrap(item, Face::Regular, BODY, CONTENT_W - indent);
+            // Keep short items together; long ones may break between lines.
+            if lines.len() <= 4 {
+                self.ensure(lh * lines.len() as f32);
+            }
             for (i, l) in lines.iter().enumerate() {
                 self.ensure(lh);
                 let baseline = self.y - BODY * ASCENT;
@@ -509,7 +522,7 @@ impl Layout {
                     push_text(ops, face, TABLE, ink(), col_x[i] + pad_x, baseline, l);
                 }
             }
-            push_hrule(ops, rule(), 0.4, MARGIN_X, MARGIN_X + CONTENT_W, y - h);
+            push_hrule(ops, grey(0.86), 0.4, MARGIN_X, MARGIN_X + CONTENT_W, y - h);
             layout.y -= h;
         };
         let draw_header = |layout: &mut Layout| {
@@ -899,7 +912,6 @@ pub fn render_pdf(doc: &Document) -> Result<Vec<u8>, PdfError> {
             rename_font(obj, name.as_bytes(), tagged.as_bytes());
         }
     }
-
     compress_streams(&mut lo)?;
     let mut out = Vec::with_capacity(64 * 1024);
     lo.save_to(&mut out)
@@ -1193,13 +1205,11 @@ pub(crate) mod tests {
         let doc = lopdf::Document::load_mem(&bytes).unwrap();
         let mut names = Vec::new();
         for obj in doc.objects.values() {
-            if let Ok(d) = obj.as_dict() {
-                if d.get(b"Type").and_then(|t| t.as_name()).ok() == Some(b"FontDescriptor") {
-                    names.push(
-                        String::from_utf8_lossy(d.get(b"FontName").unwrap().as_name().unwrap())
-                            .to_string(),
-                    );
-                }
+            if let Ok(d) = obj.as_dict()
+                && d.get(b"Type").and_then(|t| t.as_name()).ok() == Some(b"FontDescriptor")
+            {
+                let name = d.get(b"FontName").unwrap().as_name().unwrap();
+                names.push(String::from_utf8_lossy(name).to_string());
             }
         }
         names.sort();

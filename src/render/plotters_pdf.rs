@@ -421,3 +421,124 @@ pub(crate) fn draw_chart(
     ops.push(Op::RestoreGraphicsState);
     size.1 as f32 * scale
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::render::chart::{Chart, LineChart, LineSeries, LineStyle, Span, SpanKind, to_svg};
+    use chrono::NaiveDate;
+
+    fn chart() -> Chart {
+        let d = |i| NaiveDate::from_ymd_opt(2025, 3, 1).unwrap() + chrono::Duration::days(i);
+        Chart::Line(LineChart {
+            title: "Trend für Žofie".into(),
+            y_label: "kg".into(),
+            lines: vec![
+                LineSeries {
+                    label: "trend".into(),
+                    points: (0..30).map(|i| (d(i), 80.0 - i as f64 * 0.1)).collect(),
+                    style: LineStyle::Solid,
+                },
+                LineSeries {
+                    label: "weigh-ins".into(),
+                    points: (0..30)
+                        .step_by(3)
+                        .map(|i| (d(i), 80.2 - i as f64 * 0.1))
+                        .collect(),
+                    style: LineStyle::Dots,
+                },
+            ],
+            spans: vec![Span {
+                label: "plateau".into(),
+                from: d(10),
+                to: d(15),
+                kind: SpanKind::Plateau,
+            }],
+            ..Default::default()
+        })
+    }
+
+    /// Texts shown by the PDF operations, in drawing order.
+    fn pdf_texts(ops: &[Op]) -> Vec<String> {
+        ops.iter()
+            .filter_map(|op| match op {
+                Op::ShowText { items } => match items.as_slice() {
+                    [TextItem::Text(t)] => Some(t.clone()),
+                    _ => None,
+                },
+                _ => None,
+            })
+            .collect()
+    }
+
+    /// Texts of the `<text>` elements of an SVG, in document order.
+    fn svg_texts(svg: &str) -> Vec<String> {
+        svg.split("<text")
+            .skip(1)
+            .map(|t| {
+                let body = &t[t.find('>').unwrap() + 1..t.find("</text>").unwrap()];
+                body.trim().to_string()
+            })
+            .collect()
+    }
+
+    #[test]
+    fn pdf_and_svg_draw_the_same_labels_in_the_same_order() {
+        let c = chart();
+        let mut ops = Vec::new();
+        let h = draw_chart(&mut ops, &c, 50.0, 700.0, 480.0);
+        assert!((h - 480.0 * 340.0 / 720.0).abs() < 0.01);
+        let pdf = pdf_texts(&ops);
+        let svg = svg_texts(&to_svg(&c, 720, 340));
+        assert_eq!(pdf, svg);
+        assert!(pdf.contains(&"Trend für Žofie".to_string()));
+        assert!(pdf.contains(&"plateau".to_string()));
+    }
+
+    #[test]
+    fn chart_is_vector_graphics_inside_the_box_with_translucent_tints() {
+        let mut ops = Vec::new();
+        draw_chart(&mut ops, &chart(), 50.0, 700.0, 480.0);
+        assert!(matches!(ops.first(), Some(Op::SaveGraphicsState)));
+        assert!(matches!(ops.last(), Some(Op::RestoreGraphicsState)));
+        let lines = ops
+            .iter()
+            .filter(|o| matches!(o, Op::DrawLine { .. }))
+            .count();
+        let polys = ops
+            .iter()
+            .filter(|o| matches!(o, Op::DrawPolygon { .. }))
+            .count();
+        assert!(lines > 5 && polys >= 10, "lines {lines}, polygons {polys}");
+        // The plateau tint is 30 % opaque (span_fill), drawn through a named graphics state.
+        assert!(
+            ops.iter().any(
+                |o| matches!(o, Op::LoadGraphicsState { gs } if gs.0 == alpha_state_name(0.30))
+            )
+        );
+        // Every point lies within the chart box (50..530 × 473.3..700).
+        for op in &ops {
+            if let Op::DrawLine { line } = op {
+                for p in &line.points {
+                    assert!((49.9..=530.1).contains(&p.p.x.0), "{:?}", p.p);
+                    assert!((473.2..=700.1).contains(&p.p.y.0), "{:?}", p.p);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn rotated_axis_label_runs_upwards() {
+        let mut ops = Vec::new();
+        draw_chart(&mut ops, &chart(), 0.0, 400.0, 720.0);
+        let mut rotated = ops.iter().filter_map(|o| match o {
+            Op::SetTextMatrix {
+                matrix: TextMatrix::Raw(m),
+            } => Some(*m),
+            _ => None,
+        });
+        let m = rotated.next().expect("the y label is rotated");
+        assert_eq!(&m[..4], &[0.0, 1.0, -1.0, 0.0]);
+        assert!(rotated.next().is_none());
+    }
+}
