@@ -352,7 +352,8 @@ impl Layout {
         }
     }
 
-    fn heading(&mut self, level: u8, text: &str) {
+    /// A heading, kept on one page with the first `keep` points of what follows.
+    fn heading(&mut self, level: u8, text: &str, keep: f32) {
         let size = match level {
             0 | 1 => 17.0,
             2 => 13.0,
@@ -361,8 +362,7 @@ impl Layout {
         let lines = wrap(text, Face::Bold, size, CONTENT_W);
         let lh = size * 1.25;
         self.gap(size * 0.7);
-        // Keep the heading with at least three lines of what follows.
-        self.ensure(lh * lines.len() as f32 + 3.0 * BODY * LEADING);
+        self.ensure(lh * lines.len() as f32 + keep);
         for l in &lines {
             let baseline = self.y - size * ASCENT;
             push_text(self.ops(), Face::Bold, size, ink(), MARGIN_X, baseline, l);
@@ -615,9 +615,21 @@ impl Layout {
         self.y -= BODY * 0.9;
     }
 
-    fn block(&mut self, b: &Block) {
+    /// Lays out `b`; `next` is the block after it (a heading stays with its start).
+    fn block(&mut self, b: &Block, next: Option<&Block>) {
         match b {
-            Block::Heading { level, text } => self.heading(*level, text),
+            Block::Heading { level, text } => {
+                // A chart is not split, so a heading above one needs the whole chart's room;
+                // otherwise three lines of body text.
+                let keep = match next {
+                    Some(Block::Chart(c)) => {
+                        let (w, h) = c.pdf_canvas();
+                        CONTENT_W * h as f32 / w as f32 + 2.0
+                    }
+                    _ => 3.0 * BODY * LEADING,
+                };
+                self.heading(*level, text, keep)
+            }
             Block::Paragraph(t) => self.paragraph(t, BODY, ink()),
             Block::Small(t) => self.paragraph(t, SMALL, muted()),
             Block::KeyValues(kvs) => self.key_values(kvs),
@@ -772,8 +784,10 @@ fn rename_font(obj: &mut Object, from: &[u8], to: &[u8]) {
     }
 }
 
-/// zlib level for content and font streams. Level 6 instead of lopdf's 9 saves about 1.6 ms
-/// per report for 0.1 % more bytes (measured, see NOTES-RENDERING.md).
+/// zlib level for content and font streams. Compression is the largest single cost of a report.
+/// Measured on the 3-page test sample (release build, busy 2-core machine, best of 100 renders):
+/// level 1 ≈ 2.1 ms and 39.0 KB, level 6 ≈ 3.1 ms and 34.6 KB, level 9 ≈ 4.2 ms and 34.6 KB.
+/// Level 6 gives level 9's size at lower cost (NOTES-RENDERING.md found the same).
 const ZLIB_LEVEL: u32 = 6;
 
 fn compress_streams(doc: &mut lopdf::Document) -> Result<(), PdfError> {
@@ -804,8 +818,8 @@ fn compress_streams(doc: &mut lopdf::Document) -> Result<(), PdfError> {
 /// Lays out `doc` on A4 pages and returns the PDF bytes.
 pub fn render_pdf(doc: &Document) -> Result<Vec<u8>, PdfError> {
     let mut layout = Layout::new();
-    for b in &doc.blocks {
-        layout.block(b);
+    for (i, b) in doc.blocks.iter().enumerate() {
+        layout.block(b, doc.blocks.get(i + 1));
     }
     let mut pages = layout.pages;
     let m = pages.len();
@@ -1292,6 +1306,25 @@ pub(crate) mod tests {
         let texts = page_texts(&render_pdf(&doc).unwrap());
         assert_eq!(texts.len(), 2);
         assert!(texts[1].contains("No data for this period"));
+    }
+
+    #[test]
+    fn heading_moves_to_the_next_page_with_its_chart() {
+        let mut doc = sample_document();
+        let mut blocks: Vec<Block> = (0..44)
+            .map(|i| Block::Paragraph(format!("Filler line {i}.")))
+            .collect();
+        blocks.push(Block::Heading {
+            level: 2,
+            text: "Weight over time".into(),
+        });
+        blocks.push(Block::Chart(weight_chart()));
+        doc.blocks = blocks;
+        let texts = page_texts(&render_pdf(&doc).unwrap());
+        assert_eq!(texts.len(), 2);
+        assert!(texts[0].contains("Filler line 27"));
+        assert!(!texts[0].contains("Weight over time"));
+        assert!(texts[1].contains("Weight over time") && texts[1].contains("weigh-ins"));
     }
 
     #[test]
