@@ -579,15 +579,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         "Days since the last weigh-in",
     );
 
-    let status = window.map_or("insufficient_data", |w| {
-        status_code(
-            &w,
-            e + 1 >= l,
-            sm.mean[0][0],
-            sm.mean[s][0],
-            &settings.plateau,
-        )
-    });
+    let status = window.map_or("insufficient_data", |w| status_code(&w, e + 1 >= l));
     out.push_text("status", status, status_label(status));
     out
 }
@@ -595,25 +587,15 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
 /// Status of the last window.
 ///
 /// # Remarks
-/// A verdict with the interval straddling a band edge falls back to the point estimate
-/// (beyond −δ losing, beyond +δ regaining, otherwise plateau or stable). A window shorter than
-/// `plateau_window_days` (early in a program) can only report a clear loss or rise; a plateau or
-/// steady weight needs a full window. A clear rise is `regaining` whether or not a loss came
-/// first (the `periods` table keeps `regain` for rises after a loss).
-fn status_code(
-    w: &plateau::WindowVerdict,
-    full_window: bool,
-    baseline: f64,
-    level_start: f64,
-    settings: &PlateauSettings,
-) -> &'static str {
-    let flat = |baseline: f64, level_start: f64| {
-        if baseline - level_start >= settings.min_prior_loss_percent / 100.0 * baseline {
-            "plateau"
-        } else {
-            "stable"
-        }
-    };
+/// A window whose interval straddles a band edge describes a clear direction only when the
+/// point estimate lies beyond the band (beyond −δ `losing`, beyond +δ `regaining`). With the
+/// point estimate inside the band the data have not shown the slope to lie within ±δ, so the
+/// status is `insufficient_data`, not `plateau` or `stable`: a plateau must be shown by the
+/// interval, as the `periods` table requires (REFERENCE §7.3, equivalence-style test). A window
+/// shorter than `plateau_window_days` (early in a program) can only report a clear loss or
+/// rise; a plateau or steady weight needs a full window. A clear rise is `regaining` whether or
+/// not a loss came first (the `periods` table keeps `regain` for rises after a loss).
+fn status_code(w: &plateau::WindowVerdict, full_window: bool) -> &'static str {
     match w.kind {
         WindowKind::InsufficientData => "insufficient_data",
         WindowKind::Loss => "losing",
@@ -627,7 +609,7 @@ fn status_code(
             } else if w.slope > w.delta {
                 "regaining"
             } else {
-                flat(baseline, level_start)
+                "insufficient_data"
             }
         }
     }
@@ -698,4 +680,40 @@ fn push_missing_scalars(out: &mut ModuleOutput, n: usize, days_since: Option<f64
         "d",
         "Days since the last weigh-in",
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use plateau::WindowVerdict;
+
+    fn verdict(kind: WindowKind, slope: f64, lower: f64, upper: f64) -> WindowVerdict {
+        WindowVerdict {
+            start: 0,
+            end: 27,
+            kind,
+            slope,
+            lower,
+            upper,
+            delta: 0.03,
+        }
+    }
+
+    #[test]
+    fn an_interval_straddling_the_band_is_no_plateau_verdict() {
+        // Point estimate inside ±δ but the interval reaches past −δ: the data have not shown
+        // the slope to lie in the band (REFERENCE §7.3, equivalence-style test), so no
+        // plateau and no steady-weight verdict.
+        let w = verdict(WindowKind::Undecided, -0.01, -0.05, 0.03);
+        assert_eq!(status_code(&w, true), "insufficient_data");
+        // Point estimate beyond the band: the direction is clear enough to describe.
+        let w = verdict(WindowKind::Undecided, -0.04, -0.06, -0.02);
+        assert_eq!(status_code(&w, true), "losing");
+        let w = verdict(WindowKind::Undecided, 0.04, 0.02, 0.06);
+        assert_eq!(status_code(&w, true), "regaining");
+        // A window inside the band keeps its verdict; a short window cannot call it.
+        let w = verdict(WindowKind::Plateau, -0.01, -0.02, 0.0);
+        assert_eq!(status_code(&w, true), "plateau");
+        assert_eq!(status_code(&w, false), "insufficient_data");
+    }
 }
