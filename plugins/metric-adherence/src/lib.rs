@@ -98,7 +98,8 @@ fn sum_in(map: &BTreeMap<NaiveDate, f64>, a: NaiveDate, b: NaiveDate) -> f64 {
     if b < a {
         0.0
     } else {
-        map.range(a..=b).map(|(_, v)| v).sum()
+        // fold from +0.0: an empty float sum is −0.0, which the tidy files would print as "-0".
+        map.range(a..=b).fold(0.0, |acc, (_, v)| acc + v)
     }
 }
 
@@ -646,6 +647,16 @@ mod tests {
             assert_eq!(week_start(date), d("2027-03-01"));
         }
         assert_eq!(week_start(d("2027-03-08")), d("2027-03-08"));
+    }
+
+    #[test]
+    fn an_empty_sum_is_plus_zero() {
+        // A week without activity must read 0, not −0 (printed "-0" in the tidy files).
+        let mut m = BTreeMap::new();
+        m.insert(d("2027-03-10"), 30.0);
+        let empty = sum_in(&m, d("2027-03-01"), d("2027-03-07"));
+        assert!(empty == 0.0 && empty.is_sign_positive(), "{empty}");
+        assert_eq!(sum_in(&m, d("2027-03-01"), d("2027-03-10")), 30.0);
     }
 
     #[test]
