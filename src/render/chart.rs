@@ -1,8 +1,8 @@
 //! The one chart description used by every report format, and the plotters code that draws it.
 //!
-//! The same [`draw`] function draws into plotters' SVG backend (inline charts in HTML reports,
-//! [`to_svg`]) and into our PDF backend ([`super::plotters_pdf`], true vector graphics). Both
-//! backends measure text with the embedded DejaVu Sans metrics ([`estimate_text_size`]), so the
+//! The same `draw` function draws into plotters' SVG backend (inline charts in HTML reports,
+//! [`to_svg`]) and into our PDF backend (`plotters_pdf`, true vector graphics). Both
+//! backends measure text with the embedded DejaVu Sans metrics (`estimate_text_size`), so the
 //! two outputs lay out identically; plotters' own fallback estimate counts bytes and makes
 //! non-ASCII labels too wide.
 //!
