@@ -838,7 +838,7 @@ pub fn summary_row(
     };
     let in_plateau = trend.and_then(|t| t.text("status")).and_then(|s| match s {
         "plateau" => Some(true),
-        "insufficient_data" => None,
+        "insufficient_data" | "unclear" => None,
         _ => Some(false),
     });
     let clinical_flags = results

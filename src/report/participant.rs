@@ -509,6 +509,9 @@ fn headline(
             format!("Your weight trend has been rising over the last four weeks ({rate_s}).{since}")
         }
         "stable" => format!("Your weight has been stable over the last four weeks.{since}"),
+        "unclear" => format!(
+            "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off.{since}"
+        ),
         _ => format!(
             "There are too few recent weigh-ins to see how your weight moved over the last four weeks.{since}"
         ),

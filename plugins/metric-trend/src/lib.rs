@@ -121,6 +121,7 @@ fn status_label(code: &str) -> &'static str {
         "plateau" => "Weight has levelled off after a loss",
         "regaining" => "Weight is going up",
         "stable" => "Weight is steady",
+        "unclear" => "Little change, but too few weigh-ins to say whether weight has levelled off",
         _ => "Not enough weigh-ins to tell",
     }
 }
@@ -253,7 +254,7 @@ impl MetricModule for TrendModule {
                     "status",
                     "text",
                     "",
-                    "losing, plateau, regaining, stable or insufficient_data",
+                    "losing, plateau, regaining, stable, unclear or insufficient_data",
                 ),
                 out(
                     "insufficient_data",
@@ -590,7 +591,8 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
 /// A window whose interval straddles a band edge describes a clear direction only when the
 /// point estimate lies beyond the band (beyond −δ `losing`, beyond +δ `regaining`). With the
 /// point estimate inside the band the data have not shown the slope to lie within ±δ, so the
-/// status is `insufficient_data`, not `plateau` or `stable`: a plateau must be shown by the
+/// status is `unclear` (little change, no verdict), not `plateau` or `stable`: a plateau must be
+/// shown by the
 /// interval, as the `periods` table requires (REFERENCE §7.3, equivalence-style test). A window
 /// shorter than `plateau_window_days` (early in a program) can only report a clear loss or
 /// rise; a plateau or steady weight needs a full window. A clear rise is `regaining` whether or
@@ -609,7 +611,7 @@ fn status_code(w: &plateau::WindowVerdict, full_window: bool) -> &'static str {
             } else if w.slope > w.delta {
                 "regaining"
             } else {
-                "insufficient_data"
+                "unclear"
             }
         }
     }
@@ -705,7 +707,7 @@ mod tests {
         // the slope to lie in the band (REFERENCE §7.3, equivalence-style test), so no
         // plateau and no steady-weight verdict.
         let w = verdict(WindowKind::Undecided, -0.01, -0.05, 0.03);
-        assert_eq!(status_code(&w, true), "insufficient_data");
+        assert_eq!(status_code(&w, true), "unclear");
         // Point estimate beyond the band: the direction is clear enough to describe.
         let w = verdict(WindowKind::Undecided, -0.04, -0.06, -0.02);
         assert_eq!(status_code(&w, true), "losing");
