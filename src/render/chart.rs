@@ -385,7 +385,12 @@ fn fmt_num(v: f64, max_decimals: usize) -> String {
     } else {
         s
     };
-    if s == "-0" { "0".to_string() } else { s }
+    // A true minus sign, as everywhere else in the reports.
+    if s == "-0" {
+        "0".to_string()
+    } else {
+        s.replace('-', "\u{2212}")
+    }
 }
 
 /// Cuts `s` with an ellipsis so it fits `max_px` at the label size.
@@ -700,6 +705,20 @@ fn draw_bar_chart<DB: DrawingBackend>(
         let b = chart.backend_coord(&(1.0, 0.0));
         (b.0 - a.0).max(1) as f32
     };
+    // With many bars (a 26-week program) not every label fits under its bar: label every
+    // `step`-th bar so the labels do not collide, and print values above bars only when the
+    // bars are wide enough to hold them (the data table beside the chart has every value).
+    let label_px = {
+        let m = font::face(Face::Regular);
+        let em = LABEL_SIZE as f32 / SVG_FONT_DIVISOR;
+        c.bars
+            .iter()
+            .map(|b| m.width(&b.label, em))
+            .fold(0.0f32, f32::max)
+            + 6.0
+    };
+    let step = ((label_px / slot_px).ceil() as usize).max(1);
+    let show_values = slot_px >= 26.0;
     let value_style = text(LABEL_SIZE - 1.0, INK).pos(Pos::new(HPos::Center, VPos::Bottom));
     let label_style = text(LABEL_SIZE, MUTED).pos(Pos::new(HPos::Center, VPos::Top));
     let outline = AXIS.stroke_width(1);
@@ -722,19 +741,23 @@ fn draw_bar_chart<DB: DrawingBackend>(
                 [(l, 0.0), (r, b.value)],
                 OI_BLUE.filled(),
             )))?;
-            let top = chart.backend_coord(&(i as f64 + 0.5, b.value.max(0.0)));
+            if show_values {
+                let top = chart.backend_coord(&(i as f64 + 0.5, b.value.max(0.0)));
+                root.draw(&Text::new(
+                    fmt_num(b.value, 1),
+                    (top.0, top.1 - 3),
+                    value_style.clone(),
+                ))?;
+            }
+        }
+        if i % step == 0 {
+            let base = chart.backend_coord(&(i as f64 + 0.5, y0));
             root.draw(&Text::new(
-                fmt_num(b.value, 1),
-                (top.0, top.1 - 3),
-                value_style.clone(),
+                fit_label(&b.label, slot_px * step as f32 - 4.0, LABEL_SIZE),
+                (base.0, base.1 + 7),
+                label_style.clone(),
             ))?;
         }
-        let base = chart.backend_coord(&(i as f64 + 0.5, y0));
-        root.draw(&Text::new(
-            fit_label(&b.label, slot_px - 4.0, LABEL_SIZE),
-            (base.0, base.1 + 7),
-            label_style.clone(),
-        ))?;
     }
     if let Some(t) = c.target.filter(|t| t.is_finite()) {
         chart.draw_series(DashedLineSeries::new(
@@ -970,6 +993,7 @@ mod tests {
         assert_eq!(fmt_num(72.50, 2), "72.5");
         assert_eq!(fmt_num(80.0, 2), "80");
         assert_eq!(fmt_num(-0.001, 1), "0");
+        assert_eq!(fmt_num(-2.0, 1), "\u{2212}2");
         assert_eq!(fmt_num(91.349, 1), "91.3");
     }
 }

@@ -25,6 +25,7 @@
 
 use crate::dynamics::{BETA_AT, BETA_TEF, HallModel, LinearisedModel};
 use crate::equations::{RestingEquation, activity_kcal_net, jackson_2002_body_fat};
+use chrono::Datelike as _;
 use chrono::{Days, NaiveDate};
 use cohortpress_metric_api::{
     Cell, Column, FlagSeverity, ModuleContext, ModuleError, ModuleOutput, ParticipantData, Point,
@@ -746,9 +747,14 @@ fn weekly_columns() -> Table {
 /// weekday; the last week may be short).
 fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate) -> Table {
     let mut t = weekly_columns();
-    let mut ws = enrolled;
-    while ws <= to {
-        let we = day_after(ws, 6).min(to);
+    // Monday-based weeks, like the adherence module's, so a report shows one week grid; the
+    // first week starts at enrolment and the last ends at the period end.
+    let monday =
+        enrolled - chrono::Duration::days(i64::from(enrolled.weekday().num_days_from_monday()));
+    let mut week_start = monday;
+    while week_start <= to {
+        let ws = week_start.max(enrolled);
+        let we = day_after(week_start, 6).min(to);
         let bw = mean_band(&p.trend.level, ws, we)
             .map(|b| b.value)
             .or_else(|| p.weight_on(we));
@@ -761,12 +767,12 @@ fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate
             _ => None,
         };
         t.rows.push(vec![
-            text(ws.to_string()),
+            text(week_start.to_string()),
             num(expenditure),
             num(logged),
             num(implied),
         ]);
-        ws = day_after(ws, 7);
+        week_start = day_after(week_start, 7);
     }
     t
 }
