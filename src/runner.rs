@@ -806,8 +806,9 @@ pub fn summary_row(
         .and_then(|o| o.scalar("baseline_weight_kg"))
         .or_else(|| data.baseline_weight().map(|w| w.weight.kg()));
     let trend_series = trend.and_then(|t| t.series("weight_trend"));
-    // Outcome weight: the trend weight at the period end, if there is a weigh-in in the last
-    // 28 days of the period (otherwise the outcome is missing; rule documented in the README).
+    // Outcome weight: the current trend weight (the smoothed level on the last weigh-in day
+    // of the period), if that weigh-in lies in the last 28 days of the period; otherwise the
+    // outcome is missing (rule documented in the README).
     let last_weigh_in = data
         .weights
         .iter()

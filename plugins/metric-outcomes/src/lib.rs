@@ -27,11 +27,11 @@
 //! Severity `clinical` means "for review by a licensed clinician"; messages describe, never
 //! diagnose.
 //!
-//! * `fast_loss` (clinical): over some span of `fast_loss_span_days` (21) consecutive days up to
-//!   `period.to`, the daily trend level fell faster than `fast_loss_kg_per_week` (1 kg/week;
+//! * `fast_loss` (clinical): over some span of `fast_loss_span_days` (21) consecutive days
+//!   ending in the reporting period, the daily trend level fell faster than `fast_loss_kg_per_week` (1 kg/week;
 //!   "about 1 kg (2 lb) a week sustained", NIH/NHLBI 1998, from memory). Days between trend
 //!   points are filled by linear interpolation. The message names the most recent such span.
-//! * `very_low_intake` (clinical) / `low_intake` (notice): the mean of the logged intake days in
+//! * `very_low_intake` (clinical) / `low_intake` (clinical): the mean of the logged intake days in
 //!   the reporting period (on or after enrolment; at least [`MIN_INTAKE_DAYS`] days) is below
 //!   `very_low_intake` (800 kcal/d, VLCD, NIH/NHLBI 1998, from memory) or below the sex-specific
 //!   floor (1200 women / 1500 men kcal/d, common practice). Only the more serious one is raised.
@@ -780,7 +780,14 @@ impl MetricModule for OutcomesModule {
             .setting_f64("fast_loss_span_days", 21.0)
             .round()
             .max(1.0) as usize;
-        let fast = fast_loss_spans(&fill_daily(&levels), span, limit);
+        // Only spans that end in the reporting period: a fast spell months ago was flagged in
+        // that month's report and is not raised again every month after.
+        let daily: Vec<(NaiveDate, f64)> = fill_daily(&levels)
+            .into_iter()
+            .filter(|(d, _)| *d <= ctx.period.to)
+            .collect();
+        let fast =
+            fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
         if let Some((fastest, (d0, d1, rate))) = fast {
             output.push_flag(
                 "fast_loss",
@@ -827,9 +834,11 @@ impl MetricModule for OutcomesModule {
                 );
             } else if mean < floor {
                 low_intake = true;
+                // Clinical like the very-low flag: intakes below the usual floors are for a
+                // licensed clinician to review (the report's cautions say so).
                 output.push_flag(
                     "low_intake",
-                    FlagSeverity::Notice,
+                    FlagSeverity::Clinical,
                     format!(
                         "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
                          days, below {floor:.0} kcal a day, a level usually not advised without \

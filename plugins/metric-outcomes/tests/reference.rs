@@ -460,6 +460,19 @@ fn fast_loss_needs_a_sustained_rate_above_the_limit() {
             .is_empty()
     );
 
+    // A fast spell in days 0–30 and a flat trend after it: a report for days 60–90 does not
+    // raise it again (it belonged to the earlier month's report).
+    let earlier = trend_output(90, 90, 0.0, |k| 100.0 - 0.2 * (k.min(30) as f64));
+    assert!(
+        run(&ctx(day(60), day(90), Some(earlier.clone())), &data)
+            .flags
+            .is_empty()
+    );
+    assert_eq!(
+        codes(&run(&ctx(day(0), day(30), Some(earlier)), &data)),
+        vec!["fast_loss"]
+    );
+
     // Settings change the limit: 0.875 kg/week exceeds 0.5.
     let steady = trend_output(70, 70, -0.875, |k| 100.0 - 0.125 * k as f64);
     let c = ctx_with(
@@ -506,7 +519,7 @@ fn intake_flags() {
     );
     let out = run(&c, &p);
     assert_eq!(codes(&out), vec!["low_intake"]);
-    assert_eq!(out.flags[0].severity, FlagSeverity::Notice);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
     assert!(
         out.flags[0].message.contains("1100 kcal"),
         "{}",
