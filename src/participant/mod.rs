@@ -159,18 +159,31 @@ pub fn csv_options(program: &Program) -> CsvOptions {
 
 /// Reads one file of the folder; `None` when it does not exist. Unreadable or non-UTF-8 files
 /// give an error diagnostic.
+///
+/// `listing` is the folder's entries with their types, when the folder could be listed: it
+/// answers "is there such a file" without two `stat` calls per file (a noticeable part of
+/// loading). Links and unusual entries are still examined through the path.
 fn read_input(
     dir: &ParticipantDir,
     name: &str,
+    listing: Option<&[(String, std::fs::FileType)]>,
     ctx: &FileCtx,
     files: &mut Vec<InputFile>,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Result<String, ()>> {
     let path = dir.path.join(name);
-    if !path.exists() {
+    let listed = listing.map(|l| l.iter().find(|(n, _)| n == name).map(|(_, t)| *t));
+    let (exists, is_file) = match listed {
+        Some(None) => (false, false),
+        Some(Some(t)) if t.is_file() => (true, true),
+        Some(Some(t)) if t.is_dir() => (true, false),
+        // Not listed, a link or something else: ask the file system (following links).
+        _ => (path.exists(), path.is_file()),
+    };
+    if !exists {
         return None;
     }
-    if !path.is_file() {
+    if !is_file {
         diags.push(ctx.error(format!("`{name}` is not a file; it cannot be read")));
         return Some(Err(()));
     }
@@ -218,12 +231,29 @@ pub fn load_participant(
     let mut files = Vec::new();
     let opts = csv_options(program);
 
-    // Files the tool does not read but that look like inputs: most likely a misspelt name.
+    // The folder's entries: files the tool does not read but that look like inputs are most
+    // likely a misspelt name; the listing also tells `read_input` which input files exist. It
+    // is only trusted when every entry could be read with its type.
+    let mut listing: Option<Vec<(String, std::fs::FileType)>> = None;
     if let Ok(entries) = std::fs::read_dir(&dir.path) {
-        let mut names: Vec<String> = entries
-            .filter_map(|e| e.ok())
-            .map(|e| e.file_name().to_string_lossy().into_owned())
-            .collect();
+        let mut complete = true;
+        let mut typed = Vec::new();
+        let mut names: Vec<String> = Vec::new();
+        for e in entries {
+            let Ok(e) = e else {
+                complete = false;
+                continue;
+            };
+            let name = e.file_name().to_string_lossy().into_owned();
+            match e.file_type() {
+                Ok(t) => typed.push((name.clone(), t)),
+                Err(_) => complete = false,
+            }
+            names.push(name);
+        }
+        if complete {
+            listing = Some(typed);
+        }
         names.sort();
         for n in names {
             let lower = n.to_lowercase();
@@ -249,7 +279,14 @@ pub fn load_participant(
     }
 
     let pctx = FileCtx::new(id, rel(PROFILE_FILE));
-    let profile = match read_input(dir, PROFILE_FILE, &pctx, &mut files, &mut diags) {
+    let profile = match read_input(
+        dir,
+        PROFILE_FILE,
+        listing.as_deref(),
+        &pctx,
+        &mut files,
+        &mut diags,
+    ) {
         None => {
             diags.push(
                 pctx.error(format!(
@@ -275,7 +312,14 @@ pub fn load_participant(
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
             let ctx = FileCtx::new(id, rel($spec.name));
-            match read_input(dir, $spec.name, &ctx, &mut files, &mut diags) {
+            match read_input(
+                dir,
+                $spec.name,
+                listing.as_deref(),
+                &ctx,
+                &mut files,
+                &mut diags,
+            ) {
                 None => Vec::new(),
                 Some(Err(())) => Vec::new(),
                 Some(Ok(text)) => {

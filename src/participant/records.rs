@@ -119,27 +119,73 @@ fn parse_rows<T>(
     out
 }
 
+/// Equality of parsed values for [`dedupe`]: exactly "prints the same with `{:?}`" (floats print
+/// round-trip exactly, so two floats are the same when their bits are, and every NaN prints
+/// `NaN`), without building the text.
+trait SameValue: Debug {
+    fn same_value(&self, other: &Self) -> bool;
+}
+
+fn same_f64(a: f64, b: f64) -> bool {
+    a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan())
+}
+
+fn same_opt_f64(a: Option<f64>, b: Option<f64>) -> bool {
+    match (a, b) {
+        (Some(a), Some(b)) => same_f64(a, b),
+        (None, None) => true,
+        _ => false,
+    }
+}
+
+/// Rows of one date beyond which [`dedupe`] compares by hashed keys instead of pairwise (a
+/// pathological file with thousands of rows on one day must not take quadratic time).
+const PAIRWISE_MAX: usize = 16;
+
 /// Drops rows identical (after parsing) to an earlier row.
-fn dedupe<T: Debug>(
+fn dedupe<T: SameValue>(
     rows: Vec<Parsed<T>>,
     ctx: &FileCtx,
     diags: &mut Vec<Diagnostic>,
 ) -> Vec<Parsed<T>> {
-    let mut first: HashMap<String, u64> = HashMap::new();
+    // Only rows of the same date can be duplicates: group the rows by date (a stable sort keeps
+    // file order within a date) and compare within each group. Building a text key for every
+    // row instead was a sixth of the loading time.
+    let mut order: Vec<usize> = (0..rows.len()).collect();
+    order.sort_by_key(|&i| rows[i].date);
+    let mut duplicate_of: Vec<Option<u64>> = vec![None; rows.len()];
+    for group in order.chunk_by(|&a, &b| rows[a].date == rows[b].date) {
+        if group.len() <= PAIRWISE_MAX {
+            for (k, &i) in group.iter().enumerate() {
+                duplicate_of[i] = group[..k]
+                    .iter()
+                    .find(|&&j| {
+                        duplicate_of[j].is_none() && rows[j].value.same_value(&rows[i].value)
+                    })
+                    .map(|&j| rows[j].line);
+            }
+        } else {
+            let mut first: HashMap<String, u64> = HashMap::with_capacity(group.len());
+            for &i in group {
+                let key = format!("{:?}", rows[i].value);
+                match first.get(&key) {
+                    Some(&line) => duplicate_of[i] = Some(line),
+                    None => {
+                        first.insert(key, rows[i].line);
+                    }
+                }
+            }
+        }
+    }
     let mut out = Vec::with_capacity(rows.len());
-    for r in rows {
-        // Debug output of the parsed values is an exact, cheap identity key (floats print
-        // round-trip exactly).
-        let key = format!("{}|{:?}", r.date, r.value);
-        if let Some(&line) = first.get(&key) {
-            diags.push(
+    for (r, dup) in rows.into_iter().zip(duplicate_of) {
+        match dup {
+            Some(line) => diags.push(
                 ctx.warning(format!("duplicate of line {line}; the row is dropped"))
                     .at(r.line, None)
                     .hint("remove repeated rows (a file exported twice and pasted together?)"),
-            );
-        } else {
-            first.insert(key, r.line);
-            out.push(r);
+            ),
+            None => out.push(r),
         }
     }
     out
@@ -220,6 +266,15 @@ struct RawWeight {
     source: Option<String>,
 }
 
+impl SameValue for RawWeight {
+    fn same_value(&self, o: &Self) -> bool {
+        same_f64(self.value, o.value)
+            && self.unit == o.unit
+            && self.time == o.time
+            && self.source == o.source
+    }
+}
+
 impl RawWeight {
     fn kg_as_written(&self) -> f64 {
         match self.unit {
@@ -229,7 +284,7 @@ impl RawWeight {
     }
 }
 
-fn median(mut v: Vec<f64>) -> f64 {
+fn median(v: &mut [f64]) -> f64 {
     v.sort_by(f64::total_cmp);
     let n = v.len();
     if n % 2 == 1 {
@@ -295,21 +350,26 @@ pub fn parse_weights(
     let written: Vec<f64> = rows.iter().map(|r| r.value.kg_as_written()).collect();
     let mut kg = written.clone();
     let wcol = table.column("weight");
+    // Row indices in date order: the neighbours of a weigh-in are then one contiguous run,
+    // found by binary search instead of a scan of the whole file per row.
+    let mut order: Vec<usize> = (0..rows.len()).collect();
+    order.sort_by_key(|&j| rows[j].date);
+    let dates: Vec<NaiveDate> = order.iter().map(|&j| rows[j].date).collect();
+    let mut others: Vec<f64> = Vec::new();
     for (i, r) in rows.iter().enumerate() {
-        let others: Vec<f64> = rows
-            .iter()
-            .enumerate()
-            .filter(|&(j, o)| {
-                j != i
-                    && (o.date - r.date).num_days().abs() <= UNIT_SWAP_WINDOW_DAYS
-                    && plausible_kg(written[j])
-            })
-            .map(|(j, _)| written[j])
-            .collect();
+        let lo = dates.partition_point(|d| (r.date - *d).num_days() > UNIT_SWAP_WINDOW_DAYS);
+        let hi = dates.partition_point(|d| (*d - r.date).num_days() <= UNIT_SWAP_WINDOW_DAYS);
+        others.clear();
+        others.extend(
+            order[lo..hi]
+                .iter()
+                .filter(|&&j| j != i && plausible_kg(written[j]))
+                .map(|&j| written[j]),
+        );
         if others.is_empty() {
             continue;
         }
-        let med = median(others);
+        let med = median(&mut others);
         let ratio = written[i] / med;
         let near = |target: f64| (ratio / target - 1.0).abs() <= UNIT_SWAP_TOLERANCE;
         let v = r.value.value;
@@ -385,6 +445,17 @@ pub fn parse_weights(
 struct RawIntake {
     kcal: f64,
     macros: [Option<f64>; 4],
+}
+
+impl SameValue for RawIntake {
+    fn same_value(&self, o: &Self) -> bool {
+        same_f64(self.kcal, o.kcal)
+            && self
+                .macros
+                .iter()
+                .zip(&o.macros)
+                .all(|(a, b)| same_opt_f64(*a, *b))
+    }
 }
 
 const MACROS: [&str; 4] = ["carbs_g", "fat_g", "protein_g", "free_sugars_g"];
@@ -494,6 +565,35 @@ pub fn parse_intake(
         });
     }
     Some(out)
+}
+
+/// A parsed activity row: (activity, minutes, MET, source of the MET, steps).
+type RawActivity = (String, f64, f64, String, Option<f64>);
+
+impl SameValue for RawActivity {
+    fn same_value(&self, o: &Self) -> bool {
+        self.0 == o.0
+            && same_f64(self.1, o.1)
+            && same_f64(self.2, o.2)
+            && self.3 == o.3
+            && same_opt_f64(self.4, o.4)
+    }
+}
+
+impl SameValue for (String, bool) {
+    fn same_value(&self, o: &Self) -> bool {
+        self == o
+    }
+}
+
+impl SameValue for LabResult {
+    fn same_value(&self, o: &Self) -> bool {
+        self.date == o.date
+            && self.test == o.test
+            && same_f64(self.value, o.value)
+            && self.unit_as_written == o.unit_as_written
+            && same_f64(self.value_as_written, o.value_as_written)
+    }
 }
 
 /// Parses `activity.csv`: codes from the activity table, or any label with an explicit `met`.

@@ -214,3 +214,40 @@ fn profile_errors_and_withdrawal_window() {
     assert_eq!(lp.diagnostics.len(), 1);
     assert_eq!(lp.diagnostics[0].line, Some(3));
 }
+
+#[test]
+fn inputs_found_through_the_folder_listing_links_and_directories() {
+    // The folder listing decides which inputs exist; a link is followed as before, and a
+    // directory with an input's name is an error naming it.
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    let elsewhere = tmp.path().join("weights-elsewhere.csv");
+    fs::write(&elsewhere, "date,weight,unit\n2026-04-02,80,kg\n").unwrap();
+    std::os::unix::fs::symlink(&elsewhere, dir.path.join("weights.csv")).unwrap();
+    fs::create_dir(dir.path.join("intake.csv")).unwrap();
+    let loaded = load_participant(&p, &dir, as_of());
+    assert_eq!(loaded.diagnostics.len(), 1, "{:#?}", loaded.diagnostics);
+    let d = &loaded.diagnostics[0];
+    assert_eq!(d.severity, Severity::Error);
+    assert_eq!(d.file, "participants/P1/intake.csv");
+    assert!(d.message.contains("is not a file"), "{d}");
+    assert!(loaded.data.is_none());
+    // The linked weights file was read (and hashed); absent files were not listed as read.
+    let read: Vec<&str> = loaded.files.iter().map(|f| f.path.as_str()).collect();
+    assert_eq!(
+        read,
+        vec![
+            "participants/P1/profile.yaml",
+            "participants/P1/weights.csv"
+        ]
+    );
+
+    // Without the directory the participant is usable and has the linked weigh-in.
+    fs::remove_dir(dir.path.join("intake.csv")).unwrap();
+    let loaded = load_participant(&p, &dir, as_of());
+    assert!(loaded.diagnostics.is_empty(), "{:#?}", loaded.diagnostics);
+    let data = loaded.data.unwrap();
+    assert_eq!(data.weights.len(), 1);
+    assert_eq!(data.weights[0].weight.kg(), 80.0);
+}

@@ -151,6 +151,71 @@ fn duplicate_rows_are_dropped() {
 }
 
 #[test]
+fn duplicates_are_found_among_several_rows_of_a_date_in_any_order() {
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-01,72,kg\n2026-04-02,71.5,kg\n2026-04-01,72.2,kg\n2026-04-02,71.6,kg\n2026-04-01,72.20,kg\n2026-04-02,71.5,kg\n",
+    );
+    assert_eq!(w.len(), 4);
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(6));
+    assert!(
+        diags[0].message.contains("duplicate of line 4"),
+        "{}",
+        diags[0]
+    );
+    assert_eq!(diags[1].line, Some(7));
+    assert!(
+        diags[1].message.contains("duplicate of line 3"),
+        "{}",
+        diags[1]
+    );
+}
+
+#[test]
+fn duplicates_among_many_rows_of_one_day_are_found() {
+    // More rows on one day than the pairwise comparison handles: the hashed path.
+    let mut text = String::from("date,kcal\n");
+    for i in 0..20 {
+        text.push_str(&format!("2026-04-01,{}\n", 100 + i));
+    }
+    text.push_str("2026-04-01,105\n2026-04-01,119\n2026-04-01,100.0\n");
+    let (v, diags) = intake(&text);
+    assert_eq!(diags.len(), 3, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("duplicate of line 7"),
+        "{}",
+        diags[0]
+    );
+    assert!(
+        diags[1].message.contains("duplicate of line 21"),
+        "{}",
+        diags[1]
+    );
+    assert!(
+        diags[2].message.contains("duplicate of line 2"),
+        "{}",
+        diags[2]
+    );
+    // 100 + 101 + … + 119 = 2190 kcal
+    assert_eq!(v[0].kcal, 2190.0);
+}
+
+#[test]
+fn unit_check_uses_neighbours_by_date_not_by_file_order() {
+    // Rows out of date order; the 158 on 5 April has three neighbours within 14 days, and the
+    // row dated 30 May (last in the file but far away) is not one of them.
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-07,71.5,kg\n2026-04-01,72.0,kg\n2026-04-05,158.0,kg\n2026-05-30,158.0,kg\n2026-04-03,71.8,kg\n",
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(4));
+    assert!(diags[0].message.contains("median 71.8 kg"), "{}", diags[0]);
+    assert_eq!(w.len(), 5);
+    assert!((w[2].weight.kg() - 71.667_594_46).abs() < 1e-8);
+    assert_eq!(w[4].weight.kg(), 158.0);
+}
+
+#[test]
 fn dates_outside_the_window_are_dropped() {
     let mut diags = Vec::new();
     let w = Window {
