@@ -9,7 +9,7 @@
 use super::table::{Cells, CsvOptions, Dropped, FileCtx, FileSpec, Table, read_table};
 use crate::activities;
 use crate::diag::Diagnostic;
-use chrono::{NaiveDate, NaiveTime};
+use chrono::{Datelike, NaiveDate, NaiveTime};
 use cohortpress_metric_api::units::{
     CM_PER_IN, KG_PER_LB, Mass, glucose_mgdl_to_mmoll, hba1c_mmolmol_to_percent,
 };
@@ -284,13 +284,20 @@ impl RawWeight {
     }
 }
 
+/// The median of a non-empty slice (reorders it): the middle order statistic, or the mean of
+/// the two middle ones, found by selection rather than a full sort.
 fn median(v: &mut [f64]) -> f64 {
-    v.sort_by(f64::total_cmp);
     let n = v.len();
+    let (below, &mut upper, _) = v.select_nth_unstable_by(n / 2, f64::total_cmp);
     if n % 2 == 1 {
-        v[n / 2]
+        upper
     } else {
-        (v[n / 2 - 1] + v[n / 2]) / 2.0
+        let lower = below
+            .iter()
+            .copied()
+            .max_by(f64::total_cmp)
+            .expect("n is even and at least 2");
+        (lower + upper) / 2.0
     }
 }
 
@@ -354,11 +361,14 @@ pub fn parse_weights(
     // found by binary search instead of a scan of the whole file per row.
     let mut order: Vec<usize> = (0..rows.len()).collect();
     order.sort_by_key(|&j| rows[j].date);
-    let dates: Vec<NaiveDate> = order.iter().map(|&j| rows[j].date).collect();
+    // Day numbers, so the searches compare integers.
+    let day = |d: NaiveDate| i64::from(d.num_days_from_ce());
+    let days: Vec<i64> = order.iter().map(|&j| day(rows[j].date)).collect();
     let mut others: Vec<f64> = Vec::new();
     for (i, r) in rows.iter().enumerate() {
-        let lo = dates.partition_point(|d| (r.date - *d).num_days() > UNIT_SWAP_WINDOW_DAYS);
-        let hi = dates.partition_point(|d| (*d - r.date).num_days() <= UNIT_SWAP_WINDOW_DAYS);
+        let today = day(r.date);
+        let lo = days.partition_point(|&d| today - d > UNIT_SWAP_WINDOW_DAYS);
+        let hi = days.partition_point(|&d| d - today <= UNIT_SWAP_WINDOW_DAYS);
         others.clear();
         others.extend(
             order[lo..hi]

@@ -198,15 +198,23 @@ fn read_records(
     };
     // Line numbers from byte offsets: csv's own line count does not advance on `\r\n` ends,
     // and a record's position may point at the line end before it, so skip line ends first.
-    let newlines: Vec<usize> = text.match_indices('\n').map(|(i, _)| i).collect();
+    // Records come in file order, so lines are counted onward from the previous record (from
+    // the start again should a position ever go backwards).
     let bytes = text.as_bytes();
+    let counted = std::cell::Cell::new((0usize, 1u64)); // (byte, line at that byte)
     let line_of = |pos: Option<&csv::Position>| -> u64 {
         pos.map_or(0, |p| {
-            let mut b = p.byte() as usize;
+            let mut b = (p.byte() as usize).min(bytes.len());
             while b < bytes.len() && matches!(bytes[b], b'\r' | b'\n') {
                 b += 1;
             }
-            newlines.partition_point(|&nl| nl < b) as u64 + 1
+            let (mut from, mut line) = counted.get();
+            if b < from {
+                (from, line) = (0, 1);
+            }
+            line += bytes[from..b].iter().filter(|&&c| c == b'\n').count() as u64;
+            counted.set((b, line));
+            line
         })
     };
     let header_line = line_of(header.position());

@@ -473,3 +473,12 @@ fn missing_required_column_makes_the_file_unusable() {
     assert!(diags[0].message.contains("`kcal`"));
     assert!(diags[0].found.as_deref().unwrap().contains("calories"));
 }
+
+#[test]
+fn median_by_selection_matches_the_sorted_definition() {
+    assert_eq!(median(&mut [3.0, 1.0, 2.0]), 2.0);
+    assert_eq!(median(&mut [4.0, 1.0, 3.0, 2.0]), 2.5);
+    assert_eq!(median(&mut [72.0, 71.5, 72.0, 158.0]), 72.0);
+    assert_eq!(median(&mut [5.0]), 5.0);
+    assert_eq!(median(&mut [70.0, 80.0]), 75.0);
+}
