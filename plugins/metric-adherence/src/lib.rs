@@ -185,23 +185,6 @@ fn yes_no(b: bool) -> Cell {
     Cell::Text(if b { "yes" } else { "no" }.into())
 }
 
-fn col(name: &str, unit: &str, label: &str) -> Column {
-    Column {
-        name: name.into(),
-        unit: unit.into(),
-        label: label.into(),
-    }
-}
-
-fn out(name: &str, kind: &str, unit: &str, description: &str) -> OutputSpec {
-    OutputSpec {
-        name: name.into(),
-        kind: kind.into(),
-        unit: unit.into(),
-        description: description.into(),
-    }
-}
-
 /// Longest run of consecutive days in `days`.
 fn longest_streak(days: &BTreeSet<NaiveDate>) -> i64 {
     let mut best = 0;
@@ -263,109 +246,109 @@ impl MetricModule for AdherenceModule {
                     .into(),
             }],
             outputs: vec![
-                out(
+                OutputSpec::new(
                     "weekly",
                     "table",
                     "",
                     "one row per ISO week with counts and targets met",
                 ),
-                out(
+                OutputSpec::new(
                     "weekly_activity_minutes",
                     "series",
                     "min",
                     "moderate-equivalent minutes per week",
                 ),
-                out(
+                OutputSpec::new(
                     "weekly_weigh_ins",
                     "series",
                     "d",
                     "days with a weigh-in per week",
                 ),
-                out(
+                OutputSpec::new(
                     "weekly_food_log_days",
                     "series",
                     "d",
                     "days with a food log per week",
                 ),
-                out(
+                OutputSpec::new(
                     "weigh_ins_per_week",
                     "scalar",
                     "d/wk",
                     "days with a weigh-in per week, period",
                 ),
-                out(
+                OutputSpec::new(
                     "food_log_days_per_week",
                     "scalar",
                     "d/wk",
                     "food-log days per week, period",
                 ),
-                out(
+                OutputSpec::new(
                     "activity_minutes_per_week",
                     "scalar",
                     "min/wk",
                     "moderate-equivalent minutes per week, period",
                 ),
-                out(
+                OutputSpec::new(
                     "sessions_offered",
                     "scalar",
                     "",
                     "sessions offered in the period",
                 ),
-                out(
+                OutputSpec::new(
                     "sessions_attended",
                     "scalar",
                     "",
                     "sessions attended in the period",
                 ),
-                out(
+                OutputSpec::new(
                     "attendance_percent",
                     "scalar",
                     "%",
                     "sessions attended / offered in the period",
                 ),
-                out(
+                OutputSpec::new(
                     "sessions_offered_to_date",
                     "scalar",
                     "",
                     "sessions offered from enrolment to the end of observation",
                 ),
-                out(
+                OutputSpec::new(
                     "sessions_attended_to_date",
                     "scalar",
                     "",
                     "sessions attended from enrolment to the end of observation",
                 ),
-                out(
+                OutputSpec::new(
                     "attendance_to_date_percent",
                     "scalar",
                     "%",
                     "sessions attended / offered since enrolment",
                 ),
-                out(
+                OutputSpec::new(
                     "weeks_meeting_activity_target_percent",
                     "scalar",
                     "%",
                     "weeks of the period meeting the activity target",
                 ),
-                out(
+                OutputSpec::new(
                     "longest_weigh_in_streak_days",
                     "scalar",
                     "d",
                     "longest run of days with a weigh-in, program to date",
                 ),
-                out(
+                OutputSpec::new(
                     "longest_gap_days",
                     "scalar",
                     "d",
                     "longest run of days with no record, program to date",
                 ),
-                out(
+                OutputSpec::new(
                     "days_since_last_record",
                     "scalar",
                     "d",
                     "days from the last record to the end of observation",
                 ),
-                out(
+                OutputSpec::new(
                     "gap",
                     "flag",
                     "",
@@ -432,20 +415,20 @@ impl MetricModule for AdherenceModule {
             name: "weekly".into(),
             label: "Adherence by week (weeks start on Monday)".into(),
             columns: vec![
-                col("week_start", "", "Week of"),
-                col("days_covered", "d", "Days in program"),
-                col("weigh_ins", "d", "Days weighed"),
-                col("food_log_days", "d", "Days with food log"),
-                col(
+                Column::new("week_start", "", "Week of"),
+                Column::new("days_covered", "d", "Days in program"),
+                Column::new("weigh_ins", "d", "Days weighed"),
+                Column::new("food_log_days", "d", "Days with food log"),
+                Column::new(
                     "activity_minutes",
                     "min",
                     "Activity minutes (moderate-equivalent)",
                 ),
-                col("sessions_offered", "", "Sessions offered"),
-                col("sessions_attended", "", "Sessions attended"),
-                col("met_weigh_in_target", "", "Weigh-in target met"),
-                col("met_food_log_target", "", "Food-log target met"),
-                col("met_activity_target", "", "Activity target met"),
+                Column::new("sessions_offered", "", "Sessions offered"),
+                Column::new("sessions_attended", "", "Sessions attended"),
+                Column::new("met_weigh_in_target", "", "Weigh-in target met"),
+                Column::new("met_food_log_target", "", "Food-log target met"),
+                Column::new("met_activity_target", "", "Activity target met"),
             ],
             rows: weeks
                 .iter()

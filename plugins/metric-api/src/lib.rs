@@ -187,6 +187,29 @@ pub struct SettingSpec {
     pub description: String,
 }
 
+impl SettingSpec {
+    /// A number setting with its unit and inclusive range.
+    pub fn number(
+        name: &str,
+        default: f64,
+        unit: &str,
+        min: f64,
+        max: f64,
+        description: &str,
+    ) -> Self {
+        SettingSpec {
+            name: name.into(),
+            kind: SettingKind::Number,
+            default: serde_json::json!(default),
+            unit: unit.into(),
+            choices: vec![],
+            min: Some(min),
+            max: Some(max),
+            description: description.into(),
+        }
+    }
+}
+
 /// One named output a module promises.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct OutputSpec {
@@ -199,6 +222,18 @@ pub struct OutputSpec {
     pub unit: String,
     /// One-line description.
     pub description: String,
+}
+
+impl OutputSpec {
+    /// An output of `kind` (`scalar`, `series`, `table`, `text` or `flag`) with its unit.
+    pub fn new(name: &str, kind: &str, unit: &str, description: &str) -> Self {
+        OutputSpec {
+            name: name.into(),
+            kind: kind.into(),
+            unit: unit.into(),
+            description: description.into(),
+        }
+    }
 }
 
 /// What a module says about itself.

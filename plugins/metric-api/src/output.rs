@@ -86,6 +86,17 @@ pub struct Column {
     pub label: String,
 }
 
+impl Column {
+    /// A column with its unit (empty when unitless) and label.
+    pub fn new(name: &str, unit: &str, label: &str) -> Self {
+        Column {
+            name: name.into(),
+            unit: unit.into(),
+            label: label.into(),
+        }
+    }
+}
+
 /// A table (plateau periods, weekly adherence, what-it-takes options …).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Table {

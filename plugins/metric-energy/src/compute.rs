@@ -381,14 +381,6 @@ impl Person<'_> {
     }
 }
 
-fn col(name: &str, unit: &str, label: &str) -> Column {
-    Column {
-        name: name.into(),
-        unit: unit.into(),
-        label: label.into(),
-    }
-}
-
 fn num(x: Option<f64>) -> Cell {
     match x {
         Some(v) if v.is_finite() => Cell::Number(v),
@@ -730,10 +722,10 @@ fn weekly_columns() -> Table {
         name: "weekly_energy".into(),
         label: "Energy by week".into(),
         columns: vec![
-            col("week_start", "", "Week starting"),
-            col("expenditure_kcal_per_day", "kcal/d", "Expenditure"),
-            col("logged_intake_kcal_per_day", "kcal/d", "Logged intake"),
-            col(
+            Column::new("week_start", "", "Week starting"),
+            Column::new("expenditure_kcal_per_day", "kcal/d", "Expenditure"),
+            Column::new("logged_intake_kcal_per_day", "kcal/d", "Logged intake"),
+            Column::new(
                 "implied_intake_kcal_per_day",
                 "kcal/d",
                 "Intake implied by the weight trend",
@@ -782,16 +774,16 @@ fn options_columns() -> Table {
         name: "options".into(),
         label: "What it would take to reach the target rate".into(),
         columns: vec![
-            col("kind", "", "Option"),
-            col("change_per_day", "", "Change per day"),
-            col("unit", "", "Unit"),
-            col(
+            Column::new("kind", "", "Option"),
+            Column::new("change_per_day", "", "Change per day"),
+            Column::new("unit", "", "Unit"),
+            Column::new(
                 "resulting_intake_kcal_per_day",
                 "kcal/d",
                 "Resulting intake",
             ),
-            col("feasible", "", "Within safe limits"),
-            col("reason", "", "Why"),
+            Column::new("feasible", "", "Within safe limits"),
+            Column::new("reason", "", "Why"),
         ],
         rows: vec![],
     }
@@ -964,22 +956,22 @@ fn plateau_columns() -> Table {
         name: "plateau_assessment".into(),
         label: "Plateau assessment".into(),
         columns: vec![
-            col("start", "", "From"),
-            col("end", "", "To"),
-            col("observed_slope_kg_per_week", "kg/wk", "Observed trend"),
-            col("expected_slope_kg_per_week", "kg/wk", "Model expects"),
-            col(
+            Column::new("start", "", "From"),
+            Column::new("end", "", "To"),
+            Column::new("observed_slope_kg_per_week", "kg/wk", "Observed trend"),
+            Column::new("expected_slope_kg_per_week", "kg/wk", "Model expects"),
+            Column::new(
                 "implied_intake_before_kcal_per_day",
                 "kcal/d",
                 "Implied intake before",
             ),
-            col(
+            Column::new(
                 "implied_intake_during_kcal_per_day",
                 "kcal/d",
                 "Implied intake during",
             ),
-            col("classification", "", "Reading"),
-            col("evidence", "", "Evidence"),
+            Column::new("classification", "", "Reading"),
+            Column::new("evidence", "", "Evidence"),
         ],
         rows: vec![],
     }

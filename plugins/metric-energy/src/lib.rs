@@ -34,35 +34,6 @@ use serde_json::json;
 #[derive(Debug, Clone, Copy, Default)]
 pub struct EnergyModule;
 
-fn number(
-    name: &str,
-    default: f64,
-    unit: &str,
-    min: f64,
-    max: f64,
-    description: &str,
-) -> SettingSpec {
-    SettingSpec {
-        name: name.into(),
-        kind: SettingKind::Number,
-        default: json!(default),
-        unit: unit.into(),
-        choices: vec![],
-        min: Some(min),
-        max: Some(max),
-        description: description.into(),
-    }
-}
-
-fn out(name: &str, kind: &str, unit: &str, description: &str) -> OutputSpec {
-    OutputSpec {
-        name: name.into(),
-        kind: kind.into(),
-        unit: unit.into(),
-        description: description.into(),
-    }
-}
-
 impl MetricModule for EnergyModule {
     fn spec(&self) -> ModuleSpec {
         let settings = vec![
@@ -81,7 +52,7 @@ impl MetricModule for EnergyModule {
                               measured body_fat_percent and otherwise fall back to mifflin_st_jeor"
                     .into(),
             },
-            number(
+            SettingSpec::number(
                 "base_pal",
                 1.4,
                 "",
@@ -102,7 +73,7 @@ impl MetricModule for EnergyModule {
                               intake (28 = four whole weeks)"
                     .into(),
             },
-            number(
+            SettingSpec::number(
                 "target_loss_kg_per_week",
                 0.5,
                 "kg/wk",
@@ -110,7 +81,7 @@ impl MetricModule for EnergyModule {
                 2.0,
                 "Rate of loss the 'what it takes' options aim for",
             ),
-            number(
+            SettingSpec::number(
                 "max_safe_loss_kg_per_week",
                 1.0,
                 "kg/wk",
@@ -119,7 +90,7 @@ impl MetricModule for EnergyModule {
                 "Fastest rate the options will propose (NIH/NHLBI 1998 guidelines: 0.5–1 kg per \
                  week; from memory)",
             ),
-            number(
+            SettingSpec::number(
                 "intake_floor_female",
                 1200.0,
                 "kcal/d",
@@ -127,7 +98,7 @@ impl MetricModule for EnergyModule {
                 3000.0,
                 "Lowest intake proposed for women without clinical supervision (common practice)",
             ),
-            number(
+            SettingSpec::number(
                 "intake_floor_male",
                 1500.0,
                 "kcal/d",
@@ -135,7 +106,7 @@ impl MetricModule for EnergyModule {
                 3000.0,
                 "Lowest intake proposed for men without clinical supervision (common practice)",
             ),
-            number(
+            SettingSpec::number(
                 "drift_threshold_kcal_per_day",
                 150.0,
                 "kcal/d",
@@ -143,7 +114,7 @@ impl MetricModule for EnergyModule {
                 1000.0,
                 "Rise in implied intake from before to during a plateau that counts as intake drift",
             ),
-            number(
+            SettingSpec::number(
                 "walking_met",
                 3.5,
                 "MET",
@@ -151,7 +122,7 @@ impl MetricModule for EnergyModule {
                 8.0,
                 "MET of the walking option (3.5 = 2.8–3.2 mph, Compendium 2011 code 17190)",
             ),
-            number(
+            SettingSpec::number(
                 "forecast_min_days",
                 84.0,
                 "d",
@@ -161,122 +132,122 @@ impl MetricModule for EnergyModule {
             ),
         ];
         let outputs = vec![
-            out(
+            OutputSpec::new(
                 "rmr_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "Resting energy at the current weight",
             ),
-            out(
+            OutputSpec::new(
                 "activity_net_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "Logged activity net of resting, mean over the period's days",
             ),
-            out(
+            OutputSpec::new(
                 "tdee_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "RMR × base_pal + net activity",
             ),
-            out(
+            OutputSpec::new(
                 "logged_intake_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "Mean logged intake over logged days (missing with fewer than 4)",
             ),
-            out(
+            OutputSpec::new(
                 "logged_days",
                 "scalar",
                 "d",
                 "Days with an intake log in the period",
             ),
-            out(
+            OutputSpec::new(
                 "implied_intake_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "Intake implied by the weight trend (Hall & Chow 2011), 95 % interval",
             ),
-            out(
+            OutputSpec::new(
                 "intake_gap_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "Implied minus logged intake (positive = more eaten than logged)",
             ),
-            out(
+            OutputSpec::new(
                 "energy_balance_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "Implied intake minus expenditure at the current weight",
             ),
-            out(
+            OutputSpec::new(
                 "forecast_weight_at_end_kg",
                 "scalar",
                 "kg",
                 "Model weight at program end with the implied intake held",
             ),
-            out(
+            OutputSpec::new(
                 "steady_state_weight_kg",
                 "scalar",
                 "kg",
                 "Weight at which the model comes to rest with the implied intake held",
             ),
-            out(
+            OutputSpec::new(
                 "body_fat_percent_baseline",
                 "scalar",
                 "%",
                 "Baseline body fat seeding the model",
             ),
-            out("rmr_equation", "text", "", "Resting energy equation used"),
-            out(
+            OutputSpec::new("rmr_equation", "text", "", "Resting energy equation used"),
+            OutputSpec::new(
                 "body_fat_source",
                 "text",
                 "",
                 "`measured` or the equation that estimated it",
             ),
-            out(
+            OutputSpec::new(
                 "forecast_weight",
                 "series",
                 "kg",
                 "Daily model forecast to program end",
             ),
-            out(
+            OutputSpec::new(
                 "weekly_energy",
                 "table",
                 "",
                 "Expenditure, logged and implied intake by week",
             ),
-            out(
+            OutputSpec::new(
                 "options",
                 "table",
                 "",
                 "Change in intake or walking that restores the target",
             ),
-            out(
+            OutputSpec::new(
                 "plateau_assessment",
                 "table",
                 "",
                 "Expected slowdown or intake drift, per plateau",
             ),
-            out(
+            OutputSpec::new(
                 "insufficient_data",
                 "flag",
                 "",
                 "Too few data for part of the computation",
             ),
-            out(
+            OutputSpec::new(
                 "equation_fallback",
                 "flag",
                 "",
                 "Lean-mass equation without body fat",
             ),
-            out(
+            OutputSpec::new(
                 "logs_inconsistent_with_trend",
                 "flag",
                 "",
                 "Logged intake far from implied",
             ),
-            out(
+            OutputSpec::new(
                 "low_logged_intake",
                 "flag",
                 "",

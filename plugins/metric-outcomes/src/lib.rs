@@ -395,43 +395,6 @@ fn fast_loss_spans(
     latest.map(|l| (fastest, l))
 }
 
-fn col(name: &str, unit: &str, label: &str) -> Column {
-    Column {
-        name: name.into(),
-        unit: unit.into(),
-        label: label.into(),
-    }
-}
-
-fn out(name: &str, kind: &str, unit: &str, description: &str) -> OutputSpec {
-    OutputSpec {
-        name: name.into(),
-        kind: kind.into(),
-        unit: unit.into(),
-        description: description.into(),
-    }
-}
-
-fn number(
-    name: &str,
-    default: f64,
-    unit: &str,
-    min: f64,
-    max: f64,
-    description: &str,
-) -> SettingSpec {
-    SettingSpec {
-        name: name.into(),
-        kind: SettingKind::Number,
-        default: serde_json::json!(default),
-        unit: unit.into(),
-        choices: vec![],
-        min: Some(min),
-        max: Some(max),
-        description: description.into(),
-    }
-}
-
 fn kg_lb(kg: f64) -> String {
     format!("{kg:.1} kg ({:.1} lb)", Mass::from_kg(kg).lb())
 }
@@ -452,7 +415,7 @@ impl MetricModule for OutcomesModule {
                 glucose-lowering medicine."
                 .into(),
             settings: vec![
-                number(
+                SettingSpec::number(
                     "intake_floor_female",
                     1200.0,
                     "kcal/d",
@@ -461,7 +424,7 @@ impl MetricModule for OutcomesModule {
                     "mean logged intake below which a woman's intake is flagged as low \
                      (common practice)",
                 ),
-                number(
+                SettingSpec::number(
                     "intake_floor_male",
                     1500.0,
                     "kcal/d",
@@ -470,7 +433,7 @@ impl MetricModule for OutcomesModule {
                     "mean logged intake below which a man's intake is flagged as low \
                      (common practice)",
                 ),
-                number(
+                SettingSpec::number(
                     "very_low_intake",
                     800.0,
                     "kcal/d",
@@ -479,7 +442,7 @@ impl MetricModule for OutcomesModule {
                     "mean logged intake below which intake is flagged as very low (VLCD, \
                      NIH/NHLBI 1998)",
                 ),
-                number(
+                SettingSpec::number(
                     "fast_loss_kg_per_week",
                     1.0,
                     "kg/wk",
@@ -499,98 +462,98 @@ impl MetricModule for OutcomesModule {
                 },
             ],
             outputs: vec![
-                out(
+                OutputSpec::new(
                     "baseline_weight_kg",
                     "scalar",
                     "kg",
                     "first weigh-in day on or after enrolment",
                 ),
-                out(
+                OutputSpec::new(
                     "current_weight_kg",
                     "scalar",
                     "kg",
                     "trend weight at the end of the period",
                 ),
-                out("change_kg", "scalar", "kg", "current − baseline"),
-                out(
+                OutputSpec::new("change_kg", "scalar", "kg", "current − baseline"),
+                OutputSpec::new(
                     "change_percent",
                     "scalar",
                     "%",
                     "100·(current − baseline)/baseline; negative = loss",
                 ),
-                out("bmi_baseline_kg_m2", "scalar", "kg/m2", "BMI at baseline"),
-                out("bmi_current_kg_m2", "scalar", "kg/m2", "BMI now"),
-                out("bmi_change_kg_m2", "scalar", "kg/m2", "BMI change"),
-                out("rate_kg_per_week", "scalar", "kg/wk", "trend slope"),
-                out(
+                OutputSpec::new("bmi_baseline_kg_m2", "scalar", "kg/m2", "BMI at baseline"),
+                OutputSpec::new("bmi_current_kg_m2", "scalar", "kg/m2", "BMI now"),
+                OutputSpec::new("bmi_change_kg_m2", "scalar", "kg/m2", "BMI change"),
+                OutputSpec::new("rate_kg_per_week", "scalar", "kg/wk", "trend slope"),
+                OutputSpec::new(
                     "max_loss_percent",
                     "scalar",
                     "%",
                     "largest loss on the trend so far (positive = loss)",
                 ),
-                out(
+                OutputSpec::new(
                     "bmi_category_baseline",
                     "text",
                     "",
                     "WHO BMI class at baseline",
                 ),
-                out("bmi_category_current", "text", "", "WHO BMI class now"),
-                out(
+                OutputSpec::new("bmi_category_current", "text", "", "WHO BMI class now"),
+                OutputSpec::new(
                     "weight_change_category",
                     "text",
                     "",
                     "weight-change category",
                 ),
-                out(
+                OutputSpec::new(
                     "current_weight_source",
                     "text",
                     "",
                     "`trend` or `weigh_ins`",
                 ),
-                out(
+                OutputSpec::new(
                     "milestones",
                     "table",
                     "",
                     "3/5/7/10 % milestones and the day each was reached",
                 ),
-                out(
+                OutputSpec::new(
                     "labs",
                     "table",
                     "",
                     "lab values in both units with categories",
                 ),
-                out(
+                OutputSpec::new(
                     "fast_loss",
                     "flag",
                     "",
                     "sustained loss faster than the limit",
                 ),
-                out(
+                OutputSpec::new(
                     "low_intake",
                     "flag",
                     "",
                     "mean logged intake below the floor",
                 ),
-                out(
+                OutputSpec::new(
                     "very_low_intake",
                     "flag",
                     "",
                     "mean logged intake below the VLCD limit",
                 ),
-                out("low_bmi", "flag", "", "current BMI under 18.5"),
-                out(
+                OutputSpec::new("low_bmi", "flag", "", "current BMI under 18.5"),
+                OutputSpec::new(
                     "lab_diabetes_range",
                     "flag",
                     "",
                     "latest lab value in the diabetes range",
                 ),
-                out(
+                OutputSpec::new(
                     "lab_prediabetes_range",
                     "flag",
                     "",
                     "latest lab value in the prediabetes range",
                 ),
-                out(
+                OutputSpec::new(
                     "medication_review",
                     "flag",
                     "",
@@ -721,10 +684,10 @@ impl MetricModule for OutcomesModule {
             name: "milestones".into(),
             label: "Weight-loss milestones".into(),
             columns: vec![
-                col("threshold_percent", "%", "Loss of"),
-                col("threshold_weight_kg", "kg", "Weight at or below"),
-                col("reached", "", "Reached"),
-                col("date_reached", "", "First reached on"),
+                Column::new("threshold_percent", "%", "Loss of"),
+                Column::new("threshold_weight_kg", "kg", "Weight at or below"),
+                Column::new("reached", "", "Reached"),
+                Column::new("date_reached", "", "First reached on"),
             ],
             rows,
         });
@@ -735,14 +698,14 @@ impl MetricModule for OutcomesModule {
             name: "labs".into(),
             label: "Lab results and measurements".into(),
             columns: vec![
-                col("date", "", "Date"),
-                col("test", "", "Test"),
-                col("value", "", "Value"),
-                col("unit", "", "Unit"),
-                col("value_alt", "", "Value (other unit)"),
-                col("unit_alt", "", "Other unit"),
-                col("category", "", "Category"),
-                col("eag_mg_dl", "mg/dL", "Estimated average glucose"),
+                Column::new("date", "", "Date"),
+                Column::new("test", "", "Test"),
+                Column::new("value", "", "Value"),
+                Column::new("unit", "", "Unit"),
+                Column::new("value_alt", "", "Value (other unit)"),
+                Column::new("unit_alt", "", "Other unit"),
+                Column::new("category", "", "Category"),
+                Column::new("eag_mg_dl", "mg/dL", "Estimated average glucose"),
             ],
             rows: labs
                 .iter()

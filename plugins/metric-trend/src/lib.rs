@@ -69,15 +69,6 @@ fn setting(
     }
 }
 
-fn out(name: &str, kind: &str, unit: &str, description: &str) -> OutputSpec {
-    OutputSpec {
-        name: name.into(),
-        kind: kind.into(),
-        unit: unit.into(),
-        description: description.into(),
-    }
-}
-
 /// Resolved settings of one run.
 #[derive(Debug, Clone, Copy)]
 struct Settings {
@@ -194,69 +185,69 @@ impl MetricModule for TrendModule {
                 ),
             ],
             outputs: vec![
-                out(
+                OutputSpec::new(
                     "weight_trend",
                     "series",
                     "kg",
                     "Smoothed weight per day with 95 % band",
                 ),
-                out(
+                OutputSpec::new(
                     "weight_slope",
                     "series",
                     "kg/d",
                     "Smoothed rate of change per day with 95 % band",
                 ),
-                out("weigh_ins", "series", "kg", "Weigh-ins used for the trend"),
-                out(
+                OutputSpec::new("weigh_ins", "series", "kg", "Weigh-ins used for the trend"),
+                OutputSpec::new(
                     "periods",
                     "table",
                     "",
                     "Plateau, regain, loss and insufficient-data periods",
                 ),
-                out(
+                OutputSpec::new(
                     "current_weight_kg",
                     "scalar",
                     "kg",
                     "Trend weight on the last day with a weigh-in",
                 ),
-                out(
+                OutputSpec::new(
                     "slope_kg_per_week",
                     "scalar",
                     "kg/wk",
                     "Mean trend slope over the last window",
                 ),
-                out(
+                OutputSpec::new(
                     "theil_sen_slope_kg_per_week",
                     "scalar",
                     "kg/wk",
                     "Theil–Sen slope over the last window",
                 ),
-                out(
+                OutputSpec::new(
                     "noise_sd_kg",
                     "scalar",
                     "kg",
                     "Estimated day-to-day scatter of weigh-ins around the trend",
                 ),
-                out("weigh_ins_used", "scalar", "", "Weigh-ins used"),
-                out(
+                OutputSpec::new("weigh_ins_used", "scalar", "", "Weigh-ins used"),
+                OutputSpec::new(
                     "outliers_ignored",
                     "scalar",
                     "",
                     "Weigh-ins ignored as outliers",
                 ),
-                out(
+                OutputSpec::new(
                     "days_since_last_weigh_in",
                     "scalar",
                     "d",
                     "Days from the last weigh-in to the period end",
                 ),
-                out(
+                OutputSpec::new(
                     "status",
                     "text",
                     "",
                     "losing, plateau, regaining, stable, unclear or insufficient_data",
                 ),
-                out(
+                OutputSpec::new(
                     "insufficient_data",
                     "flag",
                     "",

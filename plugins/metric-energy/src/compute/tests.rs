@@ -139,7 +139,7 @@ fn trend_output(
     out.tables.push(Table {
         name: "periods".into(),
         label: "periods".into(),
-        columns: names.iter().map(|n| col(n, "", n)).collect(),
+        columns: names.iter().map(|n| Column::new(n, "", n)).collect(),
         rows: periods
             .iter()
             .map(|(k, s, e, sl, ws)| {
