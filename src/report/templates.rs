@@ -248,82 +248,59 @@ fn register_helpers(hb: &mut Handlebars<'static>) {
             },
         ),
     );
-    // {{len list}}: number of items of a list.
+    // The other helpers turn their parameters into text, always escaped.
+    text_helper(hb, "len", |h| {
+        // {{len list}}: number of items of a list.
+        let v = h
+            .param(0)
+            .ok_or(RenderErrorReason::ParamNotFoundForIndex("len", 0))?;
+        Ok(v.value().as_array().map_or(0, |a| a.len()).to_string())
+    });
+    text_helper(hb, "fixed", |h| {
+        // {{fixed number decimals}}: a number with a fixed number of decimals.
+        let v = h
+            .param(0)
+            .and_then(|p| p.value().as_f64())
+            .ok_or(RenderErrorReason::ParamNotFoundForIndex("fixed", 0))?;
+        let d = h.param(1).and_then(|p| p.value().as_u64()).unwrap_or(1) as usize;
+        Ok(super::format::fixed(v, d))
+    });
+    text_helper(hb, "percent", |h| {
+        // {{percent number}}: `62 %`.
+        let v = h
+            .param(0)
+            .and_then(|p| p.value().as_f64())
+            .ok_or(RenderErrorReason::ParamNotFoundForIndex("percent", 0))?;
+        Ok(super::format::percent(v, 0))
+    });
+    text_helper(hb, "date", |h| {
+        // {{date "2026-09-14"}}: `14 Sep 2026`; anything else is printed as it is.
+        let v = h
+            .param(0)
+            .ok_or(RenderErrorReason::ParamNotFoundForIndex("date", 0))?;
+        let s = v.value().render();
+        Ok(chrono::NaiveDate::parse_from_str(&s, "%Y-%m-%d")
+            .map(super::format::date)
+            .unwrap_or(s))
+    });
+}
+
+/// Registers a helper whose output is the text `f` makes from its parameters, HTML-escaped.
+fn text_helper(
+    hb: &mut Handlebars<'static>,
+    name: &'static str,
+    f: fn(&Helper<'_>) -> Result<String, RenderErrorReason>,
+) {
     hb.register_helper(
-        "len",
+        name,
         Box::new(
-            |h: &Helper<'_>,
-             _: &Handlebars<'_>,
-             _: &Context,
-             _: &mut RenderContext<'_, '_>,
-             out: &mut dyn Output|
-             -> HelperResult {
-                let v = h
-                    .param(0)
-                    .ok_or(RenderErrorReason::ParamNotFoundForIndex("len", 0))?;
-                let n = v.value().as_array().map(|a| a.len()).unwrap_or(0);
-                out.write(&n.to_string())?;
-                Ok(())
-            },
-        ),
-    );
-    // {{fixed number decimals}}: a number with a fixed number of decimals.
-    hb.register_helper(
-        "fixed",
-        Box::new(
-            |h: &Helper<'_>,
-             _: &Handlebars<'_>,
-             _: &Context,
-             _: &mut RenderContext<'_, '_>,
-             out: &mut dyn Output|
-             -> HelperResult {
-                let v = h
-                    .param(0)
-                    .and_then(|p| p.value().as_f64())
-                    .ok_or(RenderErrorReason::ParamNotFoundForIndex("fixed", 0))?;
-                let d = h.param(1).and_then(|p| p.value().as_u64()).unwrap_or(1) as usize;
-                out.write(&handlebars::html_escape(&super::format::fixed(v, d)))?;
-                Ok(())
-            },
-        ),
-    );
-    // {{percent number}}: `62 %`.
-    hb.register_helper(
-        "percent",
-        Box::new(
-            |h: &Helper<'_>,
-             _: &Handlebars<'_>,
-             _: &Context,
-             _: &mut RenderContext<'_, '_>,
-             out: &mut dyn Output|
-             -> HelperResult {
-                let v = h
-                    .param(0)
-                    .and_then(|p| p.value().as_f64())
-                    .ok_or(RenderErrorReason::ParamNotFoundForIndex("percent", 0))?;
-                out.write(&super::format::percent(v, 0))?;
-                Ok(())
-            },
-        ),
-    );
-    // {{date "2026-09-14"}}: `14 Sep 2026`.
-    hb.register_helper(
-        "date",
-        Box::new(
-            |h: &Helper<'_>,
-             _: &Handlebars<'_>,
-             _: &Context,
-             _: &mut RenderContext<'_, '_>,
-             out: &mut dyn Output|
-             -> HelperResult {
-                let v = h
-                    .param(0)
-                    .ok_or(RenderErrorReason::ParamNotFoundForIndex("date", 0))?;
-                let s = v.value().render();
-                let text = chrono::NaiveDate::parse_from_str(&s, "%Y-%m-%d")
-                    .map(super::format::date)
-                    .unwrap_or(s);
-                out.write(&handlebars::html_escape(&text))?;
+            move |h: &Helper<'_>,
+                  _: &Handlebars<'_>,
+                  _: &Context,
+                  _: &mut RenderContext<'_, '_>,
+                  out: &mut dyn Output|
+                  -> HelperResult {
+                out.write(&handlebars::html_escape(&f(h)?))?;
                 Ok(())
             },
         ),
