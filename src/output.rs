@@ -87,6 +87,50 @@ pub struct Staging {
     _lock: File,
 }
 
+/// A file being written into staging; [`StagingFile::finish`] flushes it and records it for
+/// the manifest.
+pub struct StagingFile<'a> {
+    staging: &'a Staging,
+    rel: String,
+    out: std::io::BufWriter<File>,
+    hasher: blake3::Hasher,
+    bytes: u64,
+}
+
+impl Write for StagingFile<'_> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        let n = self.out.write(buf)?;
+        self.hasher.update(&buf[..n]);
+        self.bytes += n as u64;
+        Ok(n)
+    }
+
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.out.flush()
+    }
+}
+
+impl StagingFile<'_> {
+    /// Flushes the file and records it (path, blake3, size) among the staged outputs.
+    pub fn finish(mut self) -> Result<OutputFile, StagingError> {
+        self.out.flush().map_err(|source| StagingError::Io {
+            path: self.rel.clone(),
+            source,
+        })?;
+        let entry = OutputFile {
+            path: self.rel,
+            blake3: self.hasher.finalize().to_hex().to_string(),
+            bytes: self.bytes,
+        };
+        self.staging
+            .written
+            .lock()
+            .expect("no panics while holding the lock")
+            .push(entry.clone());
+        Ok(entry)
+    }
+}
+
 /// What a commit put in place.
 #[derive(Debug, Clone)]
 pub struct OutputSet {
@@ -156,6 +200,24 @@ impl Staging {
     /// Writes `bytes` to `rel` (a relative path with `/`) inside staging. Safe to call from
     /// several threads.
     pub fn write(&self, rel: &str, bytes: &[u8]) -> Result<OutputFile, StagingError> {
+        let mut f = self.create(rel)?;
+        f.write_all(bytes).map_err(|source| StagingError::Io {
+            path: rel.to_string(),
+            source,
+        })?;
+        f.finish()
+    }
+
+    /// Reads back a file written into staging (a participant's partial result).
+    pub fn read(&self, rel: &str) -> Result<Vec<u8>, StagingError> {
+        let path = self.dir.join(rel);
+        fs::read(&path).map_err(io(&path))
+    }
+
+    /// Opens `rel` (a relative path with `/`) inside staging for streaming writes; the file is
+    /// recorded with its hash and size by [`StagingFile::finish`]. Safe to call from several
+    /// threads.
+    pub fn create(&self, rel: &str) -> Result<StagingFile<'_>, StagingError> {
         // Output paths are built from checked ids; refuse anything that could leave the
         // staging folder all the same (defence in depth: a file name comes from user data).
         let safe = !rel.is_empty()
@@ -177,18 +239,14 @@ impl Staging {
         {
             create_dir(p, self.access)?;
         }
-        let mut f = new_file(&path, self.access)?;
-        f.write_all(bytes).map_err(io(&path))?;
-        let entry = OutputFile {
-            path: rel.to_string(),
-            blake3: blake3::hash(bytes).to_hex().to_string(),
-            bytes: bytes.len() as u64,
-        };
-        self.written
-            .lock()
-            .expect("no panics while holding the lock")
-            .push(entry.clone());
-        Ok(entry)
+        let file = new_file(&path, self.access)?;
+        Ok(StagingFile {
+            staging: self,
+            rel: rel.to_string(),
+            out: std::io::BufWriter::with_capacity(1 << 16, file),
+            hasher: blake3::Hasher::new(),
+            bytes: 0,
+        })
     }
 
     /// The output folder this staging folder will replace (its current content is the

@@ -25,11 +25,12 @@ use crate::participant::{self, InputFile, ParticipantDir};
 use crate::program::{self, DefaultPeriod, Format, Program};
 use crate::report;
 use crate::shard::{self, ShardFile, ShardSpec};
-use crate::tidy::{self, TidyParticipant};
+use crate::tidy;
 use chrono::{Datelike, NaiveDate};
 use cohortpress_metric_api::{ParticipantData, Period};
 use rayon::prelude::*;
 use std::path::{Path, PathBuf};
+use std::sync::Mutex;
 use std::time::Instant;
 
 /// Everything a run needs, resolved from the command line and `program.yaml`.
@@ -505,6 +506,7 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     let key_hash = plan.key.hash();
     let phase = Instant::now();
     let progress = crate::progress::Progress::new(dirs.len() as u64);
+    let columns = Mutex::new(tidy::Columns::new(plan.modules.ids()));
     let results: Vec<Result<(ParticipantRecord, bool), RunError>> = pool.install(|| {
         dirs.par_iter()
             .map(|dir| {
@@ -513,13 +515,15 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
                 } else {
                     None
                 };
-                let r = match reused {
+                let (mut rec, was_reused) = match reused {
                     Some(rec) => (rec, true),
                     None => (
                         process_participant(plan, &key_hash, &templates, &staging, dir)?,
                         false,
                     ),
                 };
+                keep_light(&mut rec, &columns);
+                let r = (rec, was_reused);
                 progress.tick();
                 Ok(r)
             })
@@ -543,7 +547,7 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     }
 
     if let Some(s) = plan.shard {
-        let (summary, _, _, _, _) = tally(&discovery, &records);
+        let (summary, _, _, _) = tally(&discovery, &records);
         let file = ShardFile {
             format: shard::FORMAT,
             shard: s.index,
@@ -564,13 +568,29 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
         };
         return Ok((summary, timing));
     }
-    let (summary, mut timing) = finish(plan, &templates, staging, &discovery, &records)?;
+    let columns = columns
+        .into_inner()
+        .expect("no panics while holding the lock");
+    let (summary, mut timing) = finish(plan, &templates, staging, &discovery, &records, &columns)?;
     timing.participants_s = participants_s;
     Ok((summary, timing))
 }
 
-/// Totals, every diagnostic, the group step's rows, the tidy rows and the input files of a set
-/// of participant records (in id order).
+/// What a record keeps in memory until the end of the run: everything but its tidy metrics,
+/// which stay in its `cache/ID.json` (already written) and are streamed into the tidy files by
+/// [`tidy::render`]; only their column names are noted. Memory then grows with the small
+/// summary rows, not with the metrics.
+pub fn keep_light(rec: &mut ParticipantRecord, columns: &Mutex<tidy::Columns>) {
+    if let Some(t) = rec.tidy.take() {
+        columns
+            .lock()
+            .expect("no panics while holding the lock")
+            .observe(&t.to_tidy());
+    }
+}
+
+/// Totals, every diagnostic, the group step's rows and the input files of a set of participant
+/// records (in id order).
 fn tally(
     discovery: &[Diagnostic],
     records: &[ParticipantRecord],
@@ -578,7 +598,6 @@ fn tally(
     RunSummary,
     Vec<Diagnostic>,
     Vec<ParticipantSummary>,
-    Vec<TidyParticipant>,
     Vec<InputFile>,
 ) {
     let mut summary = RunSummary {
@@ -588,7 +607,6 @@ fn tally(
     };
     let mut all_diags: Vec<Diagnostic> = discovery.to_vec();
     let mut rows = Vec::new();
-    let mut tidy_rows = Vec::new();
     let mut inputs: Vec<InputFile> = Vec::new();
     for r in records {
         let diags = r.diagnostics();
@@ -605,12 +623,10 @@ fn tally(
         }
         all_diags.extend(diags);
         inputs.extend(r.input_files());
+        // A usable participant has a summary row (and a report and tidy metrics).
         if let Some(s) = &r.summary {
-            rows.push(s.to_summary());
-        }
-        if let Some(t) = &r.tidy {
             summary.reported += 1;
-            tidy_rows.push(t.to_tidy());
+            rows.push(s.to_summary());
         }
     }
     for d in &all_diags {
@@ -620,7 +636,7 @@ fn tally(
         }
     }
     inputs.sort_by(|a, b| a.path.cmp(&b.path));
-    (summary, all_diags, rows, tidy_rows, inputs)
+    (summary, all_diags, rows, inputs)
 }
 
 /// The group step, group reports, tidy metrics and manifest from every participant's record
@@ -632,9 +648,10 @@ pub fn finish(
     staging: Staging,
     discovery: &[Diagnostic],
     records: &[ParticipantRecord],
+    columns: &tidy::Columns,
 ) -> Result<(RunSummary, Timing), RunError> {
     let mut timing = Timing::default();
-    let (summary, all_diags, rows, tidy_rows, inputs) = tally(discovery, records);
+    let (summary, all_diags, rows, inputs) = tally(discovery, records);
 
     // Group step and group reports.
     let phase = Instant::now();
@@ -654,12 +671,9 @@ pub fn finish(
 
     // Tidy metrics.
     let phase = Instant::now();
-    let tidy_refs: Vec<&TidyParticipant> = tidy_rows.iter().collect();
-    let tidy_files = tidy::render(plan, &tidy_refs, &all_diags, &group)
+    let ids: Vec<String> = records.iter().map(|r| r.id.clone()).collect();
+    tidy::render(plan, columns, &ids, &staging, &all_diags, &group)
         .map_err(|e| RunError::Output(e.to_string()))?;
-    for (name, bytes) in tidy_files {
-        staging.write(&name, &bytes)?;
-    }
     timing.tidy_s = phase.elapsed().as_secs_f64();
 
     // Manifest last: it lists every other output.

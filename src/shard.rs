@@ -248,6 +248,7 @@ fn merge(
     let staging = Staging::begin_with(&plan.out_dir, plan.access).map_err(RunError::from)?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();
+    let columns = std::sync::Mutex::new(crate::tidy::Columns::new(plan.modules.ids()));
     for (dir, shard) in dirs.iter().zip(shards) {
         for id in &shard.participants {
             let rel = partial::cache_path(id);
@@ -273,7 +274,9 @@ fn merge(
                 }
                 staging.write(&f.path, &b)?;
             }
-            staging.write(&rel, &rec.to_bytes())?;
+            staging.write(&rel, &bytes)?;
+            let mut rec = rec;
+            runner::keep_light(&mut rec, &columns);
             records.push(rec);
         }
     }
@@ -291,7 +294,11 @@ fn merge(
         .collect();
     let templates = crate::report::templates::TemplateSet::load(&plan.program)
         .map_err(|e| RunError::Render(e.to_string()))?;
-    let (summary, _timing) = runner::finish(plan, &templates, staging, &discovery, &records)?;
+    let columns = columns
+        .into_inner()
+        .expect("no panics while holding the lock");
+    let (summary, _timing) =
+        runner::finish(plan, &templates, staging, &discovery, &records, &columns)?;
     Ok(summary)
 }
 

@@ -4,10 +4,13 @@
 use crate::diag::Diagnostic;
 use crate::group::GroupReport;
 use crate::modules::ModuleResults;
+use crate::output::Staging;
 use crate::runner::RunPlan;
 use cohortpress_metric_api::{Flag, ParticipantData, Scalar, TextValue};
+use rayon::prelude::*;
 use serde::Serialize;
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
+use std::io::Write;
 
 /// One participant's tidy metrics.
 #[derive(Debug, Clone, Serialize)]
@@ -107,136 +110,90 @@ fn num(v: Option<f64>) -> String {
     }
 }
 
-/// Renders `metrics/participants.csv`, `metrics/participants.json`, `metrics/weekly.csv`,
-/// `metrics/tables.csv`,
-/// `metrics/data-quality.csv` and `metrics/group.json`.
-pub fn render(
-    plan: &RunPlan,
-    rows: &[&TidyParticipant],
-    diags: &[Diagnostic],
-    group: &GroupReport,
-) -> Result<Vec<(String, Vec<u8>)>, Box<dyn std::error::Error + Send + Sync>> {
-    let mut files = Vec::new();
-    let mut rows: Vec<&&TidyParticipant> = rows.iter().collect();
-    rows.sort_by(|a, b| a.participant_id.cmp(&b.participant_id));
+/// The column set of `metrics/participants.csv`: the union over participants of their group
+/// keys, scalars (with interval columns when any participant has an interval) and texts.
+/// Columns follow the module order of the program, then names alphabetically, so the order
+/// does not depend on which participant was seen first (participants are processed in
+/// parallel).
+#[derive(Debug, Clone, Default)]
+pub struct Columns {
+    modules: Vec<String>,
+    group_keys: BTreeSet<String>,
+    scalars: BTreeMap<(usize, String, String), bool>,
+    texts: BTreeSet<(usize, String, String)>,
+}
 
-    // Column set: the union over participants, in first-seen (module) order.
-    let mut group_keys: Vec<String> = Vec::new();
-    let mut scalar_cols: Vec<(String, String, bool)> = Vec::new(); // module, name, has interval
-    let mut text_cols: Vec<(String, String)> = Vec::new();
-    for r in &rows {
-        for k in r.groups.keys() {
-            if !group_keys.contains(k) {
-                group_keys.push(k.clone());
-            }
-        }
-        for (m, s) in &r.scalars {
-            let interval = s.lower.is_some() || s.upper.is_some();
-            match scalar_cols
-                .iter_mut()
-                .find(|(cm, cn, _)| cm == m && cn == &s.name)
-            {
-                Some(c) => c.2 |= interval,
-                None => scalar_cols.push((m.clone(), s.name.clone(), interval)),
-            }
-        }
-        for (m, s) in &r.texts {
-            if !text_cols.iter().any(|(cm, cn)| cm == m && cn == &s.name) {
-                text_cols.push((m.clone(), s.name.clone()));
-            }
+impl Columns {
+    /// An empty set for modules that run in the order `modules`.
+    pub fn new(modules: Vec<String>) -> Self {
+        Columns {
+            modules,
+            ..Default::default()
         }
     }
-    group_keys.sort();
 
-    let mut w = csv::Writer::from_writer(Vec::new());
+    fn rank(&self, module: &str) -> usize {
+        self.modules
+            .iter()
+            .position(|m| m == module)
+            .unwrap_or(self.modules.len())
+    }
+
+    /// Adds the columns one participant's metrics need.
+    pub fn observe(&mut self, t: &TidyParticipant) {
+        self.group_keys.extend(t.groups.keys().cloned());
+        for (m, sc) in &t.scalars {
+            let interval = sc.lower.is_some() || sc.upper.is_some();
+            *self
+                .scalars
+                .entry((self.rank(m), m.clone(), sc.name.clone()))
+                .or_default() |= interval;
+        }
+        for (m, tx) in &t.texts {
+            self.texts
+                .insert((self.rank(m), m.clone(), tx.name.clone()));
+        }
+    }
+}
+
+/// Writes `metrics/participants.csv`, `metrics/participants.json`, `metrics/weekly.csv`,
+/// `metrics/tables.csv`, `metrics/data-quality.csv` and `metrics/group.json` into staging.
+///
+/// Participants' metrics are not held in memory: they are read back, in id order, from the
+/// partial results (`cache/ID.json`) already in staging and streamed into the files, so memory
+/// does not grow with the number of participants.
+pub fn render(
+    plan: &RunPlan,
+    columns: &Columns,
+    ids: &[String],
+    staging: &Staging,
+    diags: &[Diagnostic],
+    group: &GroupReport,
+) -> Result<(), Box<dyn std::error::Error + Send + Sync>> {
+    let (from, to) = (plan.period.from.to_string(), plan.period.to.to_string());
+    let mut participants = csv::Writer::from_writer(staging.create("metrics/participants.csv")?);
+    let mut json = staging.create("metrics/participants.json")?;
+    let mut weekly = csv::Writer::from_writer(staging.create("metrics/weekly.csv")?);
+    let mut tables = csv::Writer::from_writer(staging.create("metrics/tables.csv")?);
+
     let mut header = vec![
         "participant_id".to_string(),
         "period_from".into(),
         "period_to".into(),
     ];
-    header.extend(group_keys.iter().map(|k| format!("group_{k}")));
-    for (m, n, interval) in &scalar_cols {
+    header.extend(columns.group_keys.iter().map(|k| format!("group_{k}")));
+    for ((_, m, n), interval) in &columns.scalars {
         header.push(format!("{m}.{n}"));
         if *interval {
             header.push(format!("{m}.{n}_lower95"));
             header.push(format!("{m}.{n}_upper95"));
         }
     }
-    header.extend(text_cols.iter().map(|(m, n)| format!("{m}.{n}")));
+    header.extend(columns.texts.iter().map(|(_, m, n)| format!("{m}.{n}")));
     header.push("clinical_flags".into());
     header.push("module_failures".into());
-    w.write_record(&header)?;
-    for r in &rows {
-        let mut rec = vec![
-            r.participant_id.clone(),
-            plan.period.from.to_string(),
-            plan.period.to.to_string(),
-        ];
-        rec.extend(
-            group_keys
-                .iter()
-                .map(|k| r.groups.get(k).cloned().unwrap_or_default()),
-        );
-        for (m, n, interval) in &scalar_cols {
-            let s = r
-                .scalars
-                .iter()
-                .find(|(sm, s)| sm == m && &s.name == n)
-                .map(|(_, s)| s);
-            rec.push(num(s.and_then(|s| s.value)));
-            if *interval {
-                rec.push(num(s.and_then(|s| s.lower)));
-                rec.push(num(s.and_then(|s| s.upper)));
-            }
-        }
-        for (m, n) in &text_cols {
-            rec.push(
-                r.texts
-                    .iter()
-                    .find(|(tm, t)| tm == m && &t.name == n)
-                    .map(|(_, t)| t.value.clone())
-                    .unwrap_or_default(),
-            );
-        }
-        let clinical: Vec<&str> = r
-            .flags
-            .iter()
-            .filter(|(_, f)| f.severity == cohortpress_metric_api::FlagSeverity::Clinical)
-            .map(|(_, f)| f.code.as_str())
-            .collect();
-        rec.push(clinical.join(";"));
-        rec.push(
-            r.failures
-                .iter()
-                .map(|(m, _)| m.as_str())
-                .collect::<Vec<_>>()
-                .join(";"),
-        );
-        w.write_record(&rec)?;
-    }
-    files.push(("metrics/participants.csv".to_string(), w.into_inner()?));
-
-    #[derive(Serialize)]
-    struct JsonRow<'a> {
-        period_from: String,
-        period_to: String,
-        #[serde(flatten)]
-        row: &'a TidyParticipant,
-    }
-    let json_rows: Vec<JsonRow<'_>> = rows
-        .iter()
-        .map(|r| JsonRow {
-            period_from: plan.period.from.to_string(),
-            period_to: plan.period.to.to_string(),
-            row: r,
-        })
-        .collect();
-    let mut j = serde_json::to_vec_pretty(&json_rows)?;
-    j.push(b'\n');
-    files.push(("metrics/participants.json".to_string(), j));
-
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record([
+    participants.write_record(&header)?;
+    weekly.write_record([
         "participant_id",
         "module",
         "series",
@@ -246,15 +203,7 @@ pub fn render(
         "lower95",
         "upper95",
     ])?;
-    for r in &rows {
-        for row in &r.weekly_rows {
-            w.write_record(row)?;
-        }
-    }
-    files.push(("metrics/weekly.csv".to_string(), w.into_inner()?));
-
-    let mut w = csv::Writer::from_writer(Vec::new());
-    w.write_record([
+    tables.write_record([
         "participant_id",
         "module",
         "table",
@@ -263,12 +212,102 @@ pub fn render(
         "unit",
         "value",
     ])?;
-    for r in &rows {
-        for row in &r.table_rows {
-            w.write_record(row)?;
+    json.write_all(b"[")?;
+
+    #[derive(Serialize)]
+    struct JsonRow<'a> {
+        period_from: &'a str,
+        period_to: &'a str,
+        #[serde(flatten)]
+        row: &'a TidyParticipant,
+    }
+    let mut first = true;
+    // Parsed a chunk at a time in parallel, written in id order.
+    for chunk in ids.chunks(256) {
+        let parsed: Vec<Result<Option<TidyParticipant>, String>> = chunk
+            .par_iter()
+            .map(|id| {
+                let bytes = staging
+                    .read(&crate::partial::cache_path(id))
+                    .map_err(|e| e.to_string())?;
+                let rec = crate::partial::ParticipantRecord::from_bytes(&bytes)
+                    .ok_or_else(|| format!("cache/{id}.json: unreadable partial result"))?;
+                Ok(rec.tidy.map(|t| t.to_tidy()))
+            })
+            .collect();
+        for r in parsed {
+            let Some(r) = r? else { continue };
+            let mut rec = vec![r.participant_id.clone(), from.clone(), to.clone()];
+            rec.extend(
+                columns
+                    .group_keys
+                    .iter()
+                    .map(|k| r.groups.get(k).cloned().unwrap_or_default()),
+            );
+            for ((_, m, n), interval) in &columns.scalars {
+                let sc = r
+                    .scalars
+                    .iter()
+                    .find(|(sm, s)| sm == m && &s.name == n)
+                    .map(|(_, s)| s);
+                rec.push(num(sc.and_then(|s| s.value)));
+                if *interval {
+                    rec.push(num(sc.and_then(|s| s.lower)));
+                    rec.push(num(sc.and_then(|s| s.upper)));
+                }
+            }
+            for (_, m, n) in &columns.texts {
+                rec.push(
+                    r.texts
+                        .iter()
+                        .find(|(tm, t)| tm == m && &t.name == n)
+                        .map(|(_, t)| t.value.clone())
+                        .unwrap_or_default(),
+                );
+            }
+            // Each clinical flag code once (two labs in the diabetes range are one code).
+            let clinical: BTreeSet<&str> = r
+                .flags
+                .iter()
+                .filter(|(_, f)| f.severity == cohortpress_metric_api::FlagSeverity::Clinical)
+                .map(|(_, f)| f.code.as_str())
+                .collect();
+            rec.push(clinical.into_iter().collect::<Vec<_>>().join(";"));
+            rec.push(
+                r.failures
+                    .iter()
+                    .map(|(m, _)| m.as_str())
+                    .collect::<Vec<_>>()
+                    .join(";"),
+            );
+            participants.write_record(&rec)?;
+
+            json.write_all(if first { b"\n" } else { b",\n" })?;
+            first = false;
+            serde_json::to_writer(
+                &mut json,
+                &JsonRow {
+                    period_from: &from,
+                    period_to: &to,
+                    row: &r,
+                },
+            )?;
+            for row in &r.weekly_rows {
+                weekly.write_record(row)?;
+            }
+            for row in &r.table_rows {
+                tables.write_record(row)?;
+            }
         }
     }
-    files.push(("metrics/tables.csv".to_string(), w.into_inner()?));
+    json.write_all(b"\n]\n")?;
+    json.finish()?;
+    participants
+        .into_inner()
+        .map_err(|e| e.to_string())?
+        .finish()?;
+    weekly.into_inner().map_err(|e| e.to_string())?.finish()?;
+    tables.into_inner().map_err(|e| e.to_string())?.finish()?;
 
     let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record([
@@ -299,10 +338,10 @@ pub fn render(
             d.hint.clone().unwrap_or_default(),
         ])?;
     }
-    files.push(("metrics/data-quality.csv".to_string(), w.into_inner()?));
+    staging.write("metrics/data-quality.csv", &w.into_inner()?)?;
 
     let mut g = serde_json::to_vec_pretty(group)?;
     g.push(b'\n');
-    files.push(("metrics/group.json".to_string(), g));
-    Ok(files)
+    staging.write("metrics/group.json", &g)?;
+    Ok(())
 }
