@@ -581,6 +581,10 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
 /// [`tidy::render`]; only their column names are noted. Memory then grows with the small
 /// summary rows, not with the metrics.
 pub fn keep_light(rec: &mut ParticipantRecord, columns: &Mutex<tidy::Columns>) {
+    // The folder listing and report hashes served incremental reuse and merge checks, which
+    // are done by now; staging keeps its own list of written files for the manifest.
+    rec.listing = Vec::new();
+    rec.reports = Vec::new();
     if let Some(t) = rec.tidy.take() {
         columns
             .lock()
