@@ -66,6 +66,8 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
     }
     if let Some(rest) = msg.strip_prefix("unknown field `") {
         if let Some((key, tail)) = rest.split_once('`') {
+            // The list of allowed keys goes under "expected", not into the headline too.
+            d.message = format!("unknown key `{key}`");
             d = d.found(format!("`{key}`"));
             if let Some(exp) = tail.strip_prefix(", expected ") {
                 d = d.expected(exp.to_string());
@@ -205,7 +207,7 @@ mod tests {
         assert_eq!(d.found.as_deref(), Some("`colour`"));
         assert!(d.expected.as_deref().unwrap().contains("`start`"), "{d}");
         assert_eq!(d.field.as_deref(), Some("inner"));
-        assert!(d.message.contains("unknown field `colour`"), "{d}");
+        assert!(d.message.contains("unknown key `colour`"), "{d}");
         assert!(!d.message.contains("at line"), "{d}");
         assert!(d.hint.is_some());
     }
