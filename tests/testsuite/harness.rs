@@ -86,8 +86,20 @@ impl ProgramTest {
 }
 
 /// Copies a folder tree (files and folders only).
+///
+/// A program's own output (the default `reports/` folder and its hidden staging and lock
+/// files) is left out: after the README's first command the sample program holds its reports,
+/// and a test must start from the inputs alone.
 pub fn copy_tree(src: &Path, dst: &Path) {
-    for entry in walkdir::WalkDir::new(src).sort_by_file_name() {
+    let is_output = |e: &walkdir::DirEntry| {
+        let name = e.file_name().to_string_lossy();
+        e.depth() == 1 && (name == "reports" || name.starts_with(".reports"))
+    };
+    for entry in walkdir::WalkDir::new(src)
+        .sort_by_file_name()
+        .into_iter()
+        .filter_entry(|e| !is_output(e))
+    {
         let entry = entry.expect("walk fixture");
         let rel = entry.path().strip_prefix(src).unwrap();
         let target = dst.join(rel);
