@@ -395,24 +395,7 @@ fn fmt_num(v: f64, max_decimals: usize) -> String {
 
 /// Cuts `s` with an ellipsis so it fits `max_px` at the label size.
 fn fit_label(s: &str, max_px: f32, size: f64) -> String {
-    let em = size as f32 / SVG_FONT_DIVISOR;
-    let m = font::face(Face::Regular);
-    if m.width(s, em) <= max_px {
-        return s.to_string();
-    }
-    let budget = max_px - m.width("…", em);
-    let mut out = String::new();
-    let mut used = 0.0;
-    for c in s.chars() {
-        let w = m.char_width(c, em);
-        if used + w > budget {
-            break;
-        }
-        used += w;
-        out.push(c);
-    }
-    out.push('…');
-    out
+    font::ellipsize(Face::Regular, s, size as f32 / SVG_FONT_DIVISOR, max_px)
 }
 
 /// Value range padded by 6 % on each side; a flat range is widened so the axis has a scale.

@@ -91,6 +91,28 @@ pub(crate) fn text_width(f: Face, text: &str, size: f32) -> f32 {
     face(f).width(text, size)
 }
 
+/// `text` as it is when it fits `max` at `size`, else cut with an ellipsis so that it does
+/// (used for chart labels and table cells alike, so SVG and PDF cut at the same place).
+pub(crate) fn ellipsize(f: Face, text: &str, size: f32, max: f32) -> String {
+    let m = face(f);
+    if m.width(text, size) <= max {
+        return text.to_string();
+    }
+    let budget = max - m.width("…", size);
+    let mut out = String::new();
+    let mut used = 0.0;
+    for c in text.chars() {
+        let w = m.char_width(c, size);
+        if used + w > budget {
+            break;
+        }
+        used += w;
+        out.push(c);
+    }
+    out.push('…');
+    out
+}
+
 impl FaceMetrics {
     fn parse(which: Face, bytes: &'static [u8]) -> FaceMetrics {
         let mut warnings = Vec::new();

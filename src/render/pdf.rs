@@ -274,23 +274,7 @@ fn wrap(text: &str, face: Face, size: f32, width: f32) -> Vec<String> {
 
 /// Shortens `s` with an ellipsis to fit `width`.
 fn truncate(s: &str, face: Face, size: f32, width: f32) -> String {
-    let m = font::face(face);
-    if m.width(s, size) <= width {
-        return s.to_string();
-    }
-    let budget = width - m.width("…", size);
-    let mut out = String::new();
-    let mut used = 0.0;
-    for c in s.chars() {
-        let w = m.char_width(c, size);
-        if used + w > budget {
-            break;
-        }
-        used += w;
-        out.push(c);
-    }
-    out.push('…');
-    out
+    font::ellipsize(face, s, size, width)
 }
 
 // ---- layout ---------------------------------------------------------------------------------
