@@ -635,7 +635,13 @@ fn tally(
     }
     for d in &all_diags {
         match d.severity {
-            Severity::Error => tracing::warn!("{}", d.to_string().replace('\n', " |")),
+            // Any input error leaves its participant out (the others go on).
+            Severity::Error => tracing::warn!(
+                "{}",
+                d.to_string()
+                    .replacen("error: ", "participant left out: ", 1)
+                    .replace('\n', " |")
+            ),
             Severity::Warning => tracing::debug!("{}", d.to_string().replace('\n', " |")),
         }
     }
