@@ -315,13 +315,22 @@ fn fill(
             ],
             vec![
                 "On a plateau at the end of the period".into(),
-                format!(
-                    "{} of {} with enough data: {} ({})",
-                    count(&p.in_plateau),
-                    count(&p.with_verdict),
-                    num(&p.percent, 0, " %"),
-                    interval(&p.ci, 0)
-                ),
+                match p.in_plateau {
+                    Shown::Value(_) => format!(
+                        "{} of {} with enough data: {} ({})",
+                        count(&p.in_plateau),
+                        count(&p.with_verdict),
+                        num(&p.percent, 0, " %"),
+                        interval(&p.ci, 0)
+                    ),
+                    // A hidden count hides its share and interval too: say it once.
+                    _ => match p.with_verdict {
+                        Shown::Value(n) => {
+                            format!("{} (of {n} with enough data)", count(&p.in_plateau))
+                        }
+                        _ => count(&p.in_plateau),
+                    },
+                },
             ],
             vec![
                 "Flags for clinician review (count only)".into(),
