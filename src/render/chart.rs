@@ -621,7 +621,7 @@ fn draw_line_chart<DB: DrawingBackend>(
     if any_label {
         chart
             .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
+            .position(legend_corner(c, (x0, x1), (y0, y1)))
             .margin(6)
             .legend_area_size(24)
             .label_font(text(LABEL_SIZE - 1.0, INK))
@@ -630,6 +630,51 @@ fn draw_line_chart<DB: DrawingBackend>(
             .draw()?;
     }
     Ok(())
+}
+
+/// The plot corner the legend covers least data in: the one with the fewest points of lines,
+/// bands and reference lines inside a box of about the legend's size (a third of the width, a
+/// quarter of the height). Ties keep the order upper right, upper left, lower left, lower right.
+fn legend_corner(
+    c: &LineChart,
+    (x0, x1): (NaiveDate, NaiveDate),
+    (y0, y1): (f64, f64),
+) -> SeriesLabelPosition {
+    let span_x = ((x1 - x0).num_days() as f64).max(1.0);
+    let span_y = (y1 - y0).max(f64::EPSILON);
+    let fx = |d: NaiveDate| (d - x0).num_days() as f64 / span_x;
+    let fy = |v: f64| (v - y0) / span_y;
+    let mut pts: Vec<(f64, f64)> = Vec::new();
+    for l in &c.lines {
+        pts.extend(l.points.iter().map(|(d, v)| (fx(*d), fy(*v))));
+    }
+    for b in &c.bands {
+        for (d, lo, hi) in &b.points {
+            pts.push((fx(*d), fy(*lo)));
+            pts.push((fx(*d), fy(*hi)));
+        }
+    }
+    for h in &c.hlines {
+        // A reference line crosses the whole width, with its label at the right end.
+        pts.extend((0..=10).map(|i| (i as f64 / 10.0, fy(h.y))));
+    }
+    let corners = [
+        (SeriesLabelPosition::UpperRight, (0.66, 1.0), (0.75, 1.0)),
+        (SeriesLabelPosition::UpperLeft, (0.0, 0.34), (0.75, 1.0)),
+        (SeriesLabelPosition::LowerLeft, (0.0, 0.34), (0.0, 0.25)),
+        (SeriesLabelPosition::LowerRight, (0.66, 1.0), (0.0, 0.25)),
+    ];
+    let mut best = (usize::MAX, SeriesLabelPosition::UpperRight);
+    for (pos, (ax, bx), (ay, by)) in corners {
+        let n = pts
+            .iter()
+            .filter(|(x, y)| *x >= ax && *x <= bx && *y >= ay && *y <= by)
+            .count();
+        if n < best.0 {
+            best = (n, pos);
+        }
+    }
+    best.1
 }
 
 fn draw_bar_chart<DB: DrawingBackend>(
@@ -969,6 +1014,45 @@ mod tests {
         // "ễ" is three UTF-8 bytes; with real metrics it is exactly as wide as "e".
         assert_eq!(ascii, accented);
         assert!(estimate_text_size("WWW", &style).0 > estimate_text_size("iii", &style).0 * 2);
+    }
+
+    #[test]
+    fn the_legend_goes_where_the_data_are_not() {
+        let d0 = NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+        let line = |f: &dyn Fn(f64) -> f64| LineChart {
+            title: "t".into(),
+            y_label: String::new(),
+            lines: vec![LineSeries {
+                label: "l".into(),
+                points: (0..=100)
+                    .map(|i| (d0 + Duration::days(i), f(i as f64 / 100.0)))
+                    .collect(),
+                style: LineStyle::Solid,
+            }],
+            bands: vec![],
+            spans: vec![],
+            hlines: vec![],
+            alt_text: String::new(),
+        };
+        let xs = (d0, d0 + Duration::days(100));
+        // Falling from the top left: the upper right is free.
+        let falling = line(&|x| 1.0 - x);
+        assert!(matches!(
+            legend_corner(&falling, xs, (0.0, 1.0)),
+            SeriesLabelPosition::UpperRight
+        ));
+        // Rising to the top right: the upper left is free.
+        let rising = line(&|x| x);
+        assert!(matches!(
+            legend_corner(&rising, xs, (0.0, 1.0)),
+            SeriesLabelPosition::UpperLeft
+        ));
+        // High all along the top: a lower corner.
+        let high = line(&|_| 0.9);
+        assert!(matches!(
+            legend_corner(&high, xs, (0.0, 1.0)),
+            SeriesLabelPosition::LowerLeft
+        ));
     }
 
     #[test]
