@@ -313,7 +313,7 @@ pub fn build(
                         "intake_drift" => "Most likely a gradual rise in how much is eaten: the weight trend implies a higher intake than before the plateau.".to_string(),
                         _ => "The records do not yet show clearly whether this is the expected slowdown at a lower weight or a gradual rise in how much is eaten.".to_string(),
                     };
-                    PlateauView { period, verdict, evidence: cell_str(t, r, "evidence") }
+                    PlateauView { period, verdict, evidence: plateau_evidence(t, r, units) }
                 })
                 .collect()
         })
@@ -516,6 +516,33 @@ fn headline(
             "There are too few recent weigh-ins to see how your weight moved over the last four weeks.{since}"
         ),
     }
+}
+
+/// The numbers behind a plateau reading, in plain words and the program's display units (the
+/// module's own `evidence` text, in kg and model terms, stays in the tidy tables).
+fn plateau_evidence(t: &Table, r: &[Cell], units: UnitSystem) -> String {
+    let mut parts = Vec::new();
+    if let (Some(before), Some(during)) = (
+        cell_num(t, r, "implied_intake_before_kcal_per_day"),
+        cell_num(t, r, "implied_intake_during_kcal_per_day"),
+    ) {
+        parts.push(format!(
+            "Your weight trend implies about {} a day before the plateau and about {} a day during it.",
+            fmt::kcal(before),
+            fmt::kcal(during)
+        ));
+    }
+    if let (Some(expected), Some(observed)) = (
+        cell_num(t, r, "expected_slope_kg_per_week"),
+        cell_num(t, r, "observed_slope_kg_per_week"),
+    ) {
+        parts.push(format!(
+            "With the intake you logged, the model expects a change of {} at this weight; the trend shows {}.",
+            fmt::rate_per_week(expected, units),
+            fmt::rate_per_week(observed, units)
+        ));
+    }
+    parts.join(" ")
 }
 
 fn option_view(t: &Table, r: &[Cell]) -> OptionView {
