@@ -385,16 +385,6 @@ mod tests {
     }
 
     #[test]
-    fn intake_balancing_the_linear_model_reproduces_its_slope() {
-        let lin = LinearisedModel::from_baseline(90.0, 30.0, 1700.0, 1.6);
-        let dei = lin.implied_intake_change(-5.0, -0.03);
-        // Solving back for the slope gives the slope we started from.
-        let slope = (dei - lin.epsilon * -5.0) / lin.rho;
-        assert_abs_diff_eq!(slope, -0.03, epsilon = 1e-12);
-        assert_abs_diff_eq!(lin.half_time(), lin.tau * 2f64.ln(), epsilon = 1e-12);
-    }
-
-    #[test]
     fn extra_activity_lowers_weight_and_intake_rise_raises_it() {
         let m = model();
         let walk = m.simulate_constant(200, m.ei0, 2.5);
