@@ -814,13 +814,7 @@ pub fn summary_row(
     data: &ParticipantData,
     results: &ModuleResults,
 ) -> ParticipantSummary {
-    let get = |m: &str| {
-        results
-            .outputs
-            .iter()
-            .find(|(id, _)| id == m)
-            .map(|(_, o)| o)
-    };
+    let get = |m: &str| results.output(m);
     let trend = get("trend");
     let adherence = get("adherence");
     let outcomes = get("outcomes");

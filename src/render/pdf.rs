@@ -11,6 +11,7 @@
 //!
 //! [`render_pdf`] returns bytes and never touches the file system.
 
+use super::plotters_pdf::r2;
 use std::collections::{BTreeMap, BTreeSet};
 use std::io::Write as _;
 
@@ -140,10 +141,6 @@ fn tone_colours(tone: Tone) -> (Color, Color) {
         Tone::Info => (rgb(0x00, 0x72, 0xB2), rgb(0xE8, 0xF2, 0xF9)),
         Tone::Caution => (rgb(0xD5, 0x5E, 0x00), rgb(0xFC, 0xEF, 0xE3)),
     }
-}
-
-fn r2(v: f32) -> f32 {
-    (v * 100.0).round() / 100.0
 }
 
 // ---- primitive operations -------------------------------------------------------------------

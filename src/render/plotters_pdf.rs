@@ -46,7 +46,7 @@ fn alpha_percent(alpha: f64) -> u32 {
 
 /// Rounds a page coordinate to 1/100 pt: far below what any printer shows, and it keeps the
 /// content streams short.
-fn r2(v: f32) -> f32 {
+pub(crate) fn r2(v: f32) -> f32 {
     (v * 100.0).round() / 100.0
 }
 

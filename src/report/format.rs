@@ -91,6 +91,15 @@ pub fn kcal_change(v: f64) -> String {
     format!("{sign}{} kcal/day", group_thousands(r.abs()))
 }
 
+/// `site` → `Site` (group keys as headings).
+pub fn capitalise(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
+        None => String::new(),
+    }
+}
+
 /// A date as `14 Sep 2026`.
 pub fn date(d: NaiveDate) -> String {
     d.format("%-d %b %Y").to_string()

@@ -143,7 +143,7 @@ pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupRepo
             notes.push(n.clone());
         }
         for (i, s) in split.sections.iter().enumerate() {
-            let title = format!("{}: {}", capitalise(&split.key), s.label);
+            let title = format!("{}: {}", fmt::capitalise(&split.key), s.label);
             let anchor = format!("{}-{i}", split.key);
             sections.push(section(plan, s, &title, &anchor, &mut charts));
         }
@@ -177,14 +177,6 @@ pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupRepo
         min_cell_size: g.min_cell_size,
     };
     GroupReportModel { ctx, charts }
-}
-
-fn capitalise(s: &str) -> String {
-    let mut c = s.chars();
-    match c.next() {
-        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
-        None => String::new(),
-    }
 }
 
 fn section(

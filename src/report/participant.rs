@@ -149,14 +149,6 @@ pub struct ParticipantReport {
     pub activity_chart: Option<Chart>,
 }
 
-fn output<'a>(results: &'a ModuleResults, id: &str) -> Option<&'a ModuleOutput> {
-    results
-        .outputs
-        .iter()
-        .find(|(m, _)| m == id)
-        .map(|(_, o)| o)
-}
-
 fn cell_text(c: &Cell) -> String {
     match c {
         Cell::Number(n) => fmt::fixed(*n, if n.fract() == 0.0 { 0 } else { 1 }),
@@ -200,10 +192,10 @@ pub fn build(
 ) -> ParticipantReport {
     let units = plan.program.info.units;
     let p = &data.profile;
-    let trend = output(results, "trend");
-    let energy = output(results, "energy");
-    let adherence = output(results, "adherence");
-    let outcomes = output(results, "outcomes");
+    let trend = results.output("trend");
+    let energy = results.output("energy");
+    let adherence = results.output("adherence");
+    let outcomes = results.output("outcomes");
 
     let mut facts = vec![Kv::new("Participant id", &p.id)];
     facts.push(Kv::new("Enrolled", &fmt::date(p.enrolled)));
@@ -212,7 +204,7 @@ pub fn build(
     }
     facts.push(Kv::new("Height", &fmt::height(p.height.cm(), units)));
     for (k, v) in &p.groups {
-        facts.push(Kv::new(&capitalise(k), v));
+        facts.push(Kv::new(&fmt::capitalise(k), v));
     }
 
     // Summary figures.
@@ -452,14 +444,6 @@ pub fn build(
         weight_chart,
         energy_chart,
         activity_chart,
-    }
-}
-
-fn capitalise(s: &str) -> String {
-    let mut c = s.chars();
-    match c.next() {
-        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
-        None => String::new(),
     }
 }
 
