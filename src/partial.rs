@@ -330,63 +330,63 @@ pub struct TidyRecord {
 }
 
 impl TidyRecord {
-    /// From the tidy row.
-    pub fn from_tidy(t: &TidyParticipant) -> Self {
+    /// From the tidy row (moved, not copied: the rows are the bulk of a record).
+    pub fn from_tidy(t: TidyParticipant) -> Self {
         TidyRecord {
-            participant_id: t.participant_id.clone(),
-            groups: t.groups.clone(),
+            participant_id: t.participant_id,
+            groups: t.groups,
             scalars: t
                 .scalars
-                .iter()
+                .into_iter()
                 .map(|(m, s)| {
                     (
-                        m.clone(),
+                        m,
                         ScalarRecord {
-                            name: s.name.clone(),
+                            name: s.name,
                             value: ex(s.value),
-                            unit: s.unit.clone(),
+                            unit: s.unit,
                             lower: ex(s.lower),
                             upper: ex(s.upper),
-                            label: s.label.clone(),
+                            label: s.label,
                         },
                     )
                 })
                 .collect(),
-            texts: t.texts.clone(),
-            flags: t.flags.clone(),
-            failures: t.failures.clone(),
-            weekly_rows: t.weekly_rows.clone(),
-            table_rows: t.table_rows.clone(),
+            texts: t.texts,
+            flags: t.flags,
+            failures: t.failures,
+            weekly_rows: t.weekly_rows,
+            table_rows: t.table_rows,
         }
     }
 
-    /// Back to the tidy row.
-    pub fn to_tidy(&self) -> TidyParticipant {
+    /// Back to the tidy row (moved, not copied).
+    pub fn into_tidy(self) -> TidyParticipant {
         TidyParticipant {
-            participant_id: self.participant_id.clone(),
-            groups: self.groups.clone(),
+            participant_id: self.participant_id,
+            groups: self.groups,
             scalars: self
                 .scalars
-                .iter()
+                .into_iter()
                 .map(|(m, s)| {
                     (
-                        m.clone(),
+                        m,
                         Scalar {
-                            name: s.name.clone(),
+                            name: s.name,
                             value: un(s.value),
-                            unit: s.unit.clone(),
+                            unit: s.unit,
                             lower: un(s.lower),
                             upper: un(s.upper),
-                            label: s.label.clone(),
+                            label: s.label,
                         },
                     )
                 })
                 .collect(),
-            texts: self.texts.clone(),
-            flags: self.flags.clone(),
-            failures: self.failures.clone(),
-            weekly_rows: self.weekly_rows.clone(),
-            table_rows: self.table_rows.clone(),
+            texts: self.texts,
+            flags: self.flags,
+            failures: self.failures,
+            weekly_rows: self.weekly_rows,
+            table_rows: self.table_rows,
         }
     }
 }

@@ -586,10 +586,12 @@ pub fn keep_light(rec: &mut ParticipantRecord, columns: &Mutex<tidy::Columns>) {
     rec.listing = Vec::new();
     rec.reports = Vec::new();
     if let Some(t) = rec.tidy.take() {
+        // Converted (moved) before the lock is taken, so workers do not queue behind it.
+        let t = t.into_tidy();
         columns
             .lock()
             .expect("no panics while holding the lock")
-            .observe(&t.to_tidy());
+            .observe(&t);
     }
 }
 
@@ -800,7 +802,7 @@ fn process_participant(
         rec.summary = Some(SummaryRecord::from_summary(&summary_row(
             plan, &data, &results,
         )));
-        rec.tidy = Some(TidyRecord::from_tidy(&tidy::participant(
+        rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(
             plan, &data, &results,
         )));
     }

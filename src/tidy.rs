@@ -5,6 +5,7 @@ use crate::diag::Diagnostic;
 use crate::group::GroupReport;
 use crate::modules::ModuleResults;
 use crate::output::Staging;
+use crate::partial::TidyRecord;
 use crate::runner::RunPlan;
 use cohortpress_metric_api::{Flag, ParticipantData, Scalar, TextValue};
 use rayon::prelude::*;
@@ -232,7 +233,7 @@ pub fn render(
                     .map_err(|e| e.to_string())?;
                 let rec = crate::partial::ParticipantRecord::from_bytes(&bytes)
                     .ok_or_else(|| format!("cache/{id}.json: unreadable partial result"))?;
-                Ok(rec.tidy.map(|t| t.to_tidy()))
+                Ok(rec.tidy.map(TidyRecord::into_tidy))
             })
             .collect();
         for r in parsed {
