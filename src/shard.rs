@@ -341,7 +341,12 @@ mod tests {
         }
         // A hash spreads 300 ids roughly evenly: every shard gets a fair share.
         assert!(counts.iter().all(|&c| c > 60), "{counts:?}");
-        // The assignment depends on the id alone.
-        assert_eq!(shard_of("P-0007", 3), shard_of("P-0007", 3));
+        // The assignment depends on the id alone and is pinned: 1 + (first 8 bytes of the
+        // blake3 hash of the id, little-endian) mod N, computed independently with the Python
+        // `blake3` package 1.0.11 (`int.from_bytes(blake3(id).digest()[:8], "little") % n + 1`).
+        assert_eq!(shard_of("P-0007", 3), 3);
+        assert_eq!(shard_of("P-0007", 8), 7);
+        assert_eq!(shard_of("SG-001", 3), 1);
+        assert_eq!(shard_of("SG-049", 8), 8);
     }
 }
