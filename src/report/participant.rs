@@ -312,7 +312,16 @@ pub fn build(
         .unwrap_or_default();
     let options = energy
         .and_then(|e| e.table("options"))
-        .map(|t| t.rows.iter().map(|r| option_view(t, r)).collect())
+        .map(|t| {
+            // A row without an amount means the module could not estimate the current balance
+            // (its flag says why): there is no option to offer, so the report says so instead
+            // of proposing "0 kcal less".
+            t.rows
+                .iter()
+                .filter(|r| cell_num(t, r, "change_per_day").is_some())
+                .map(|r| option_view(t, r))
+                .collect()
+        })
         .unwrap_or_default();
 
     // Labs.

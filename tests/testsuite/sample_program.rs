@@ -135,6 +135,21 @@ fn sample_program_runs_end_to_end() {
             .any(|d| d["file"].starts_with("participants/SG-049"))
     );
 
+    // No report proposes a change it could not estimate (a participant without recent
+    // weigh-ins gets no "eat 0 kcal less" option).
+    for id in (1..=48).map(|i| format!("SG-{i:03}")) {
+        let html =
+            std::fs::read_to_string(reports.join(format!("participants/{id}.html"))).unwrap();
+        assert!(
+            !html.contains("Eat about 0 kcal"),
+            "{id} proposes an empty option"
+        );
+        assert!(
+            !html.contains("Walk about 0 minutes"),
+            "{id} proposes an empty option"
+        );
+    }
+
     // The group report names no participant.
     let group = std::fs::read_to_string(reports.join("group/program.html")).unwrap();
     for id in (1..=48).map(|i| format!("SG-{i:03}")) {
