@@ -168,7 +168,7 @@ pub fn parse_profile(
                 ctx.error("the height has no unit")
                     .expected("a height with its unit")
                     .found(format!("`{n}`"))
-                    .hint(format!("write e.g. `height: {n} cm` or `height: {n} in`")),
+                    .hint(bare_height_hint(n.as_f64().unwrap_or(0.0))),
             ));
             None
         }
@@ -373,5 +373,35 @@ flags: [glucose-lowering-medication]
         assert_eq!(d.len(), 1);
         assert_eq!(d[0].severity, Severity::Warning);
         assert_eq!(p.unwrap().body_fat_percent, None);
+    }
+}
+
+/// Hint for a height written without a unit: suggest the unit the number most plausibly has
+/// (a number over 100 is centimetres, 48–96 inches, a small one metres), never an absurd one.
+fn bare_height_hint(n: f64) -> String {
+    if n >= 100.0 {
+        format!("write e.g. `height: {n} cm`")
+    } else if n >= 48.0 {
+        format!("write e.g. `height: {n} in` (or in cm)")
+    } else if n > 0.0 && n < 3.0 {
+        format!("write e.g. `height: {n} m`")
+    } else {
+        "write the height with its unit, e.g. `168 cm`, `1.68 m`, `5 ft 6 in` or `66 in`".into()
+    }
+}
+
+#[cfg(test)]
+mod bare_height_tests {
+    use super::bare_height_hint;
+
+    #[test]
+    fn the_hint_names_a_plausible_unit() {
+        assert_eq!(bare_height_hint(172.0), "write e.g. `height: 172 cm`");
+        assert_eq!(
+            bare_height_hint(66.0),
+            "write e.g. `height: 66 in` (or in cm)"
+        );
+        assert_eq!(bare_height_hint(1.72), "write e.g. `height: 1.72 m`");
+        assert!(bare_height_hint(20.0).contains("5 ft 6 in"));
     }
 }
