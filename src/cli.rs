@@ -133,6 +133,11 @@ pub struct RunArgs {
     /// owner-only (0600/0700, the default: reports hold health data).
     #[arg(long)]
     pub group_readable: bool,
+    /// State folder of the group-report ledger (what earlier group reports published; each
+    /// new one is audited against it). Default: the output folder's name plus `.ledger`,
+    /// beside it.
+    #[arg(long, value_name = "DIR")]
+    pub state: Option<PathBuf>,
 }
 
 /// Arguments of `merge`.
@@ -155,6 +160,9 @@ pub struct MergeArgs {
     /// Create output files and folders readable by the owner's group (0640/0750).
     #[arg(long)]
     pub group_readable: bool,
+    /// State folder of the group-report ledger (default: `<out>.ledger` beside the output).
+    #[arg(long, value_name = "DIR")]
+    pub state: Option<PathBuf>,
 }
 
 fn exit_codes_help() -> String {

@@ -300,6 +300,8 @@ impl SummaryRecord {
             attendance_percent: un(self.attendance_percent),
             in_plateau: self.in_plateau,
             clinical_flags: self.clinical_flags,
+            // Set by the runner from the record's id.
+            pseudonym: None,
         }
     }
 }
@@ -433,6 +435,7 @@ mod tests {
             attendance_percent: Some(100.0 / 3.0),
             in_plateau: Some(false),
             clinical_flags: 2,
+            pseudonym: None,
         };
         let j = serde_json::to_vec(&SummaryRecord::from_summary(&s)).unwrap();
         let back = serde_json::from_slice::<SummaryRecord>(&j)

@@ -59,6 +59,8 @@ pub struct RunPlan {
     pub access: Access,
     /// What the results depend on besides each participant's own files.
     pub key: RunKey,
+    /// State folder of the group-report ledger (`--state`, default `<out>.ledger`).
+    pub state_dir: PathBuf,
 }
 
 /// Seconds spent in each phase of a run, reported in the log only (never in an output file, so
@@ -203,6 +205,10 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
         return Err(usage("--jobs must be at least 1".into()));
     }
     let key = run_key(&program, &modules, period, as_of, &formats)?;
+    let state_dir = args
+        .state
+        .clone()
+        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
     Ok(RunPlan {
         program,
         modules,
@@ -216,6 +222,7 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
         shard: args.shard,
         access: shard::access(args.group_readable),
         key,
+        state_dir,
     })
 }
 
@@ -253,6 +260,10 @@ pub fn plan_for_merge(
         None => program.root.join(&program.def.report.out),
     };
     let key = run_key(&program, &modules, period, as_of, &formats)?;
+    let state_dir = args
+        .state
+        .clone()
+        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
     Ok(RunPlan {
         program,
         modules,
@@ -266,6 +277,7 @@ pub fn plan_for_merge(
         shard: None,
         access: shard::access(args.group_readable),
         key,
+        state_dir,
     })
 }
 
@@ -632,7 +644,10 @@ fn tally(
         // A usable participant has a summary row (and a report and tidy metrics).
         if let Some(s) = &r.summary {
             summary.reported += 1;
-            rows.push(s.to_summary());
+            let mut row = s.to_summary();
+            // Group-report ledger hook: a stable stand-in for the id (never shown).
+            row.pseudonym = Some(group::pseudonym(&r.id));
+            rows.push(row);
         }
     }
     for d in &all_diags {
@@ -672,7 +687,17 @@ pub fn finish(
         group_by: plan.program.def.report.group_by.clone(),
         confidence: 0.95,
     };
-    let group = group::summarize(&rows, &opts);
+    // Group-report ledger hook: audit against what earlier reports published, record after
+    // the outputs are in place.
+    let mut ledger = group::ledger::Ledger::open(&plan.state_dir)
+        .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
+    let program_id = plan.program.info.id.clone();
+    let (period_from, period_to) = (plan.period.from.to_string(), plan.period.to.to_string());
+    let (mut group, published) =
+        group::summarize_release(&rows, &opts, &ledger.history(&program_id));
+    let headline = report::group::headline(&group, &format!("{period_from} to {period_to}"));
+    group.releases = ledger.earlier_headlines(&program_id, &period_to);
+    group.releases.push(headline.clone());
     let group_ctx = report::group_context(plan, &group, &summary);
     let group_files = report::render_group(templates, &group_ctx, &plan.formats)
         .map_err(|e| RunError::Render(e.to_string()))?;
@@ -694,6 +719,16 @@ pub fn finish(
         .map_err(|e| RunError::Output(e.to_string()))?;
     staging.write("manifest.json", &manifest)?;
     let outputs: OutputSet = staging.commit()?;
+    ledger
+        .record(group::ledger::release_record(
+            &program_id,
+            &period_from,
+            &period_to,
+            &plan.as_of.to_string(),
+            headline,
+            published,
+        ))
+        .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
     timing.commit_s = phase.elapsed().as_secs_f64();
     tracing::debug!("{} output files", outputs.files);
     Ok((summary, timing))
@@ -883,5 +918,6 @@ pub fn summary_row(
         attendance_percent: adherence.and_then(|a| a.scalar("attendance_to_date_percent")),
         in_plateau,
         clinical_flags,
+        pseudonym: None,
     }
 }

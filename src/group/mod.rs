@@ -16,19 +16,23 @@
 
 use std::collections::BTreeMap;
 
+pub mod audit;
+pub mod ledger;
 pub mod shown;
 pub mod stats;
 pub mod summary;
 pub mod suppress;
 
 #[cfg(test)]
+mod attack_tests;
+#[cfg(test)]
 mod tests;
 
 pub use shown::{Interval, Shown};
 pub use summary::{
-    Adherence, AdherenceLine, ChangeLine, ChangeStats, Enrolment, GroupReport, Histogram,
-    HistogramBin, Methods, Milestone, Plateau, Section, SectionKind, SectionStats, Split,
-    WeekPoint, WeightChange, summarize,
+    Adherence, AdherenceLine, AuditNote, ChangeLine, ChangeStats, Enrolment, GroupReport, Histogram,
+    HistogramBin, Methods, Milestone, Plateau, ReleaseLine, Section, SectionKind, SectionStats, Split,
+    WeekPoint, WeightChange, summarize, summarize_release,
 };
 
 /// One participant as the group step sees them: group attributes and derived figures only,
@@ -66,6 +70,30 @@ pub struct ParticipantSummary {
     pub in_plateau: Option<bool>,
     /// Number of clinician-review flags (only counted, never listed).
     pub clinical_flags: u32,
+    /// A stable number standing for the participant across runs (a hash of the id, set by the
+    /// runner), so that the audit can match the same person across releases. Never shown;
+    /// mixed with the ledger's secret key before it is stored. `None`: the row's position.
+    pub pseudonym: Option<u64>,
+}
+
+/// What earlier releases published, as the subtraction audit needs it (read from the ledger).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct History {
+    /// Secret key mixed into every person token (`None`: the pseudonyms are used as they are).
+    pub secret: Option<[u8; 32]>,
+    /// Sums published before: per sum, its atoms as (person token, atom key).
+    pub sums: Vec<Vec<(u64, u64)>>,
+    /// Counts published before: per count, the person tokens it counted.
+    pub counts: Vec<Vec<u64>>,
+}
+
+/// What a release publishes as exact figures, in the form [`History`] keeps (for the ledger).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Published {
+    /// Every shown sum (mean with its n): its atoms as (person token, atom key).
+    pub sums: Vec<Vec<(u64, u64)>>,
+    /// Every shown count: the person tokens it counted.
+    pub counts: Vec<Vec<u64>>,
 }
 
 /// Options of the group step (from the program's report and privacy settings).
@@ -88,4 +116,11 @@ impl Default for GroupOptions {
             confidence: 0.95,
         }
     }
+}
+
+/// The pseudonym of a participant id for [`ParticipantSummary::pseudonym`]: the first 8 bytes
+/// of its blake3 hash.
+pub fn pseudonym(id: &str) -> u64 {
+    let h = blake3::hash(id.as_bytes());
+    u64::from_le_bytes(h.as_bytes()[..8].try_into().expect("8 bytes"))
 }

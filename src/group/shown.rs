@@ -17,6 +17,16 @@ pub enum Shown<T> {
     Suppressed,
     /// Not computable from the data (e.g. a mean of no values, an interval from one value).
     NotAvailable,
+    /// Hidden, but known to lie between `lo` and `hi` (inclusive) from what the report already
+    /// shows and the suppression rule itself (for a count); a share or mean computed from such
+    /// a count carries the matching range. Showing the range tells a reader nothing they could
+    /// not work out from the rest of the report.
+    Range {
+        /// Lowest value consistent with everything shown.
+        lo: T,
+        /// Highest value consistent with everything shown.
+        hi: T,
+    },
 }
 
 impl<T> Shown<T> {
@@ -28,9 +38,9 @@ impl<T> Shown<T> {
         }
     }
 
-    /// True when hidden by suppression.
+    /// True when hidden by suppression (with or without a range).
     pub fn is_suppressed(&self) -> bool {
-        matches!(self, Shown::Suppressed)
+        matches!(self, Shown::Suppressed | Shown::Range { .. })
     }
 
     /// `Value` from `Some`, `NotAvailable` from `None`; `Suppressed` whenever `hidden`.
@@ -45,11 +55,16 @@ impl<T> Shown<T> {
 
 impl<T: Serialize> Serialize for Shown<T> {
     fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
-        let mut map = serializer.serialize_map(Some(1))?;
+        let mut map = serializer.serialize_map(None)?;
         match self {
             Shown::Value(v) => map.serialize_entry("value", v)?,
             Shown::Suppressed => map.serialize_entry("suppressed", &true)?,
             Shown::NotAvailable => map.serialize_entry("not_available", &true)?,
+            Shown::Range { lo, hi } => {
+                map.serialize_entry("suppressed", &true)?;
+                map.serialize_entry("at_least", lo)?;
+                map.serialize_entry("at_most", hi)?;
+            }
         }
         map.end()
     }

@@ -25,14 +25,15 @@
 //! combined section would hold every value, the split is not shown at all (it would repeat the
 //! program). A program with fewer than `min_cell_size` started is withheld entirely.
 
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap};
 
 use serde::Serialize;
 
 use super::shown::{Interval, Shown};
 use super::stats;
 use super::suppress::{CellId, CellTable};
-use super::{GroupOptions, ParticipantSummary};
+use super::audit;
+use super::{GroupOptions, History, ParticipantSummary, Published};
 
 /// Loss thresholds (% of baseline weight) of the milestone lines (REFERENCE §8.3).
 pub const MILESTONE_LOSS_PERCENT: [f64; 4] = [3.0, 5.0, 7.0, 10.0];
@@ -89,10 +90,42 @@ pub struct GroupReport {
     pub methods: Methods,
     /// Notes about the run of the group step (e.g. an invalid confidence level replaced).
     pub notes: Vec<String>,
+    /// Figures the subtraction audit withheld or showed only as a range, and the rule that
+    /// did it (no value is given).
+    pub audit: Vec<AuditNote>,
+    /// Month over month: the whole program's headline figures as each release printed them,
+    /// oldest first, this one last (filled from the ledger by the runner; empty otherwise).
+    pub releases: Vec<ReleaseLine>,
     /// The whole program.
     pub program: Section,
     /// One entry per `group_by` key, in the configured order.
     pub splits: Vec<Split>,
+}
+
+/// The whole program's headline figures of one release, as printed.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, serde::Deserialize)]
+pub struct ReleaseLine {
+    /// Reporting period, e.g. "2026-09-01 to 2026-09-30".
+    pub period: String,
+    /// Started (ITT denominator).
+    pub started: String,
+    /// With a recent weigh-in, and retention.
+    pub retention: String,
+    /// Mean % change, baseline carried forward.
+    pub mean_change: String,
+    /// Reached 5 % loss, count and share.
+    pub reached_5: String,
+}
+
+/// One figure withheld or coarsened by the audit.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct AuditNote {
+    /// Section label, e.g. "Whole program".
+    pub section: String,
+    /// Which figure, e.g. "weight change, last observation carried forward".
+    pub figure: String,
+    /// The rule that withheld or coarsened it.
+    pub rule: String,
 }
 
 /// Plain-language method statements carried with the report.
@@ -404,6 +437,29 @@ enum Kind {
 }
 
 impl Kind {
+    /// Plain name of the count, for the audit notes.
+    fn name(self) -> String {
+        match self {
+            Kind::Enrolled => "enrolled".into(),
+            Kind::Active => "active".into(),
+            Kind::Withdrawn => "withdrawn".into(),
+            Kind::Started => "started".into(),
+            Kind::NotStarted => "not started".into(),
+            Kind::WithOutcome => "with a recent weigh-in".into(),
+            Kind::WithoutOutcome => "without a recent weigh-in".into(),
+            Kind::Reached(i) => format!("reached {} % loss", MILESTONE_LOSS_PERCENT[i]),
+            Kind::NotReached(i) => format!("did not reach {} % loss", MILESTONE_LOSS_PERCENT[i]),
+            Kind::Bin(i) => format!("change {}", BINS[i].0),
+            Kind::Week(w) => format!("with a value in week {}", w + 1),
+            Kind::AdherenceN(i) => format!("with adherence measure {}", i + 1),
+            Kind::PlateauWithVerdict => "with a plateau verdict".into(),
+            Kind::PlateauYes => "on a plateau".into(),
+            Kind::PlateauNo => "not on a plateau".into(),
+            Kind::PlateauInsufficient => "too little data for a plateau verdict".into(),
+            Kind::Flags => "clinician-review flags".into(),
+        }
+    }
+
     /// Complement choice rank: lower is hidden first, so that the denominators of the
     /// analyses (started, with outcome) survive whenever another cell can protect instead.
     fn priority(self) -> u8 {
@@ -432,6 +488,15 @@ struct Raw {
     comp_kg: Vec<f64>,
     weeks: BTreeMap<u32, Vec<f64>>,
     adherence: [Vec<f64>; 4],
+    /// Who is counted in each cell (indices into the enrolled rows), for the audit across
+    /// releases.
+    members: BTreeMap<Kind, Vec<usize>>,
+    /// Person of each completer value (aligned with `comp_pct`).
+    comp_idx: Vec<usize>,
+    /// Started without an outcome: (person, LOCF % change, LOCF kg change).
+    locf_only: Vec<(usize, f64, f64)>,
+    /// Person of each week value (aligned with `weeks`).
+    week_idx: BTreeMap<u32, Vec<usize>>,
 }
 
 impl Raw {
@@ -444,12 +509,25 @@ fn is_started(r: &ParticipantSummary) -> bool {
     r.started && r.baseline_kg.is_some_and(|b| b.is_finite() && b > 0.0)
 }
 
-fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>) -> Raw {
+/// Index of a row among the enrolled rows, by address (rows are borrowed from one slice).
+type RowIndex = HashMap<*const ParticipantSummary, usize>;
+
+fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>, index: &RowIndex) -> Raw {
     let mut raw = Raw::default();
     let mut counts: BTreeMap<Kind, u64> = BTreeMap::new();
-    let mut inc = |k: Kind| *counts.entry(k).or_insert(0) += 1;
+    let mut members: BTreeMap<Kind, Vec<usize>> = BTreeMap::new();
+    let mut inc = |k: Kind, who: usize| {
+        *counts.entry(k).or_insert(0) += 1;
+        members.entry(k).or_default().push(who);
+    };
     let mut flags = 0u64;
+    let mut flagged = Vec::new();
     for r in rows {
+        let who = index[&(*r as *const ParticipantSummary)];
+        if r.clinical_flags > 0 {
+            flagged.push(who);
+        }
+        let mut inc = |k: Kind| inc(k, who);
         inc(Kind::Enrolled);
         inc(if r.withdrawn {
             Kind::Withdrawn
@@ -500,8 +578,10 @@ fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>) -> Raw {
             inc(Kind::WithOutcome);
             raw.comp_pct.push(pct(w));
             raw.comp_kg.push(w - b);
+            raw.comp_idx.push(who);
         } else {
             inc(Kind::WithoutOutcome);
+            raw.locf_only.push((who, pct(locf), locf - b));
         }
         let c = pct(bocf);
         inc(Kind::Bin(bin_of(c)));
@@ -521,16 +601,20 @@ fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>) -> Raw {
         }
         for (w, v) in per_week {
             raw.weeks.entry(w).or_default().push(v);
+            raw.week_idx.entry(w).or_default().push(who);
         }
     }
     counts.insert(Kind::Flags, flags);
+    members.insert(Kind::Flags, flagged);
     for &w in weeks {
         counts.insert(
             Kind::Week(w),
             raw.weeks.get(&w).map_or(0, |v| v.len() as u64),
         );
+        members.insert(Kind::Week(w), raw.week_idx.get(&w).cloned().unwrap_or_default());
     }
     raw.counts = counts;
+    raw.members = members;
     raw
 }
 
@@ -610,9 +694,20 @@ fn withheld_note(min: u32) -> String {
     format!("fewer than {min} participants — withheld")
 }
 
-/// Builds the group report (see the module documentation for every definition).
+/// Builds the group report (see the module documentation for every definition), with no
+/// earlier releases to audit against.
 pub fn summarize(rows: &[ParticipantSummary], opts: &GroupOptions) -> GroupReport {
-    build(rows, opts, true)
+    build(rows, opts, true, &History::default()).0
+}
+
+/// Builds the group report audited together with what earlier releases published, and
+/// returns what this one publishes (for the ledger).
+pub fn summarize_release(
+    rows: &[ParticipantSummary],
+    opts: &GroupOptions,
+    history: &History,
+) -> (GroupReport, Published) {
+    build(rows, opts, true, history)
 }
 
 /// `suppress = false` gives the same structure with every cell shown: the truth the
@@ -621,7 +716,8 @@ pub(super) fn build(
     rows: &[ParticipantSummary],
     opts: &GroupOptions,
     suppress: bool,
-) -> GroupReport {
+    history: &History,
+) -> (GroupReport, Published) {
     let mut notes = Vec::new();
     let confidence = if opts.confidence > 0.5 && opts.confidence < 1.0 {
         opts.confidence
@@ -634,6 +730,11 @@ pub(super) fn build(
     };
     let min = opts.min_cell_size;
     let enrolled: Vec<&ParticipantSummary> = rows.iter().filter(|r| r.enrolled).collect();
+    let index: RowIndex = enrolled
+        .iter()
+        .enumerate()
+        .map(|(i, r)| (*r as *const ParticipantSummary, i))
+        .collect();
     let weeks: BTreeSet<u32> = enrolled
         .iter()
         .filter(|r| is_started(r))
@@ -652,7 +753,7 @@ pub(super) fn build(
         members: Vec::new(),
         combined_into: None,
         withheld: program_small.then(|| withheld_note(min)),
-        raw: (!program_small).then(|| raw_section(&enrolled, &weeks)),
+        raw: (!program_small).then(|| raw_section(&enrolled, &weeks, &index)),
         cells: BTreeMap::new(),
     };
 
@@ -710,7 +811,7 @@ pub(super) fn build(
                 members: Vec::new(),
                 combined_into: (is_merged && !collapsed).then(|| combined_label.clone()),
                 withheld,
-                raw: (!is_merged).then(|| raw_section(rs, &weeks)),
+                raw: (!is_merged).then(|| raw_section(rs, &weeks, &index)),
                 cells: BTreeMap::new(),
             });
         }
@@ -735,7 +836,7 @@ pub(super) fn build(
                 members: merged.iter().map(label_of).collect(),
                 combined_into: None,
                 withheld: None,
-                raw: Some(raw_section(&rs, &weeks)),
+                raw: Some(raw_section(&rs, &weeks, &index)),
                 cells: BTreeMap::new(),
             });
         }
@@ -776,9 +877,163 @@ pub(super) fn build(
             }
         }
     }
+    // Person tokens: stable across releases when the history carries a secret key.
+    let tokens: Vec<u64> = enrolled
+        .iter()
+        .enumerate()
+        .map(|(i, r)| person_token(history.secret.as_ref(), r.pseudonym, i))
+        .collect();
+    let mut ranges: Vec<Option<(u64, u64)>> = Vec::new();
+    let mut audit_notes: Vec<AuditNote> = Vec::new();
+    let mut published = Published::default();
+    let mut withdrawn: HashMap<*const Draft, BTreeSet<Line>> = HashMap::new();
     if suppress {
-        table.apply(min);
+        let drafts_of = || {
+            std::iter::once(&program)
+                .chain(splits.iter().flat_map(|(_, ds, _)| ds.iter()))
+                .filter(|d| d.shown() && d.raw.is_some())
+        };
+        // Counts: cell suppression and the interval audit within this release, then the
+        // differences with every count published before; repeated until nothing changes.
+        let prior_counts: BTreeSet<BTreeSet<u64>> = history
+            .counts
+            .iter()
+            .map(|c| c.iter().copied().collect())
+            .collect();
+        let members_of = |raw: &Raw, k: Kind| -> BTreeSet<u64> {
+            raw.members
+                .get(&k)
+                .map(|m| m.iter().map(|&i| tokens[i]).collect())
+                .unwrap_or_default()
+        };
+        loop {
+            ranges = table.apply_with_ranges(min);
+            let mut changed = false;
+            for d in drafts_of() {
+                let raw = d.raw.as_ref().expect("filtered");
+                for (&k, &c) in &d.cells {
+                    if table.is_suppressed(c) {
+                        continue;
+                    }
+                    let set = members_of(raw, k);
+                    let isolates = |p: &BTreeSet<u64>| {
+                        let diff = p.symmetric_difference(&set).count();
+                        diff > 0 && diff < min as usize
+                    };
+                    // A count over exactly a set published before repeats it: nothing new.
+                    if !set.is_empty()
+                        && !prior_counts.contains(&set)
+                        && prior_counts.iter().any(isolates)
+                    {
+                        table.force_hide(c);
+                        changed = true;
+                        audit_notes.push(AuditNote {
+                            section: d.label.clone(),
+                            figure: k.name(),
+                            rule: format!(
+                                "Shown only as a range, because subtracted from a count in an \
+                                 earlier report it would give the number of fewer than {min} \
+                                 people"
+                            ),
+                        });
+                    }
+                }
+            }
+            if !changed {
+                break;
+            }
+        }
+        // Sums: every mean shown with its n, audited with the sums published before.
+        let mut facts: Vec<audit::SumFact> = Vec::new();
+        let mut person_of: HashMap<u64, u64> = HashMap::new();
+        for s in &history.sums {
+            for &(p, a) in s {
+                person_of.insert(a, p);
+            }
+            facts.push(audit::SumFact {
+                atoms: s.iter().map(|&(_, a)| a).collect(),
+                removable: false,
+                priority: 0,
+            });
+        }
+        let mut owners: Vec<(*const Draft, Line, String, Vec<(u64, u64)>)> = Vec::new();
+        for d in drafts_of() {
+            let raw = d.raw.as_ref().expect("filtered");
+            let shown = |k: Kind| !table.is_suppressed(d.cells[&k]);
+            let base = u32::from(d.kind == SectionKind::Program);
+            let changes: Vec<(u64, u64)> = raw
+                .comp_idx
+                .iter()
+                .zip(raw.comp_pct.iter().zip(&raw.comp_kg))
+                .map(|(&i, (&p, &k))| (tokens[i], atom(tokens[i], "change", p, k)))
+                .collect();
+            let mut lines: Vec<(Line, u32, Vec<(u64, u64)>)> = Vec::new();
+            if shown(Kind::Started) {
+                lines.push((Line::Bocf, 6 + base, changes.clone()));
+                let mut locf = changes.clone();
+                locf.extend(
+                    raw.locf_only
+                        .iter()
+                        .map(|&(i, p, k)| (tokens[i], atom(tokens[i], "change", p, k))),
+                );
+                lines.push((Line::Locf, base, locf));
+            }
+            if shown(Kind::WithOutcome) {
+                lines.push((Line::Completers, 2 + base, changes));
+            }
+            for (&w, idx) in &raw.week_idx {
+                if shown(Kind::Week(w)) {
+                    let vals = &raw.weeks[&w];
+                    let atoms = idx
+                        .iter()
+                        .zip(vals)
+                        .map(|(&i, &v)| (tokens[i], atom(tokens[i], "week", f64::from(w), v)))
+                        .collect();
+                    lines.push((Line::Week(w), 4 + base, atoms));
+                }
+            }
+            for (line, priority, atoms) in lines {
+                for &(p, a) in &atoms {
+                    person_of.insert(a, p);
+                }
+                facts.push(audit::SumFact {
+                    atoms: atoms.iter().map(|&(_, a)| a).collect(),
+                    removable: true,
+                    priority,
+                });
+                owners.push((d as *const Draft, line, d.label.clone(), atoms));
+            }
+        }
+        let keep = audit::protect(&facts, &|a| person_of.get(&a).copied().unwrap_or(a), min as usize);
+        let first_new = history.sums.len();
+        for (j, (d, line, label, atoms)) in owners.into_iter().enumerate() {
+            if keep[first_new + j] {
+                if !atoms.is_empty() {
+                    published.sums.push(atoms);
+                }
+            } else {
+                audit_notes.push(AuditNote {
+                    section: label,
+                    figure: line.name(),
+                    rule: format!(
+                        "Not shown, because with other figures of this report or of an earlier \
+                         one it would give, by subtraction, the total of fewer than {min} people"
+                    ),
+                });
+                withdrawn.entry(d).or_default().insert(line);
+            }
+        }
+        for d in drafts_of() {
+            let raw = d.raw.as_ref().expect("filtered");
+            for (&k, &c) in &d.cells {
+                let set = members_of(raw, k);
+                if !table.is_suppressed(c) && !set.is_empty() {
+                    published.counts.push(set.into_iter().collect());
+                }
+            }
+        }
     }
+    let no_lines = BTreeSet::new();
 
     let finish = |d: &Draft| Section {
         kind: d.kind.clone(),
@@ -788,17 +1043,18 @@ pub(super) fn build(
         members: d.members.clone(),
         combined_into: d.combined_into.clone(),
         withheld: d.withheld.clone(),
-        stats: d
-            .raw
-            .as_ref()
-            .filter(|_| d.shown())
-            .map(|raw| section_stats(raw, &d.cells, &table, confidence)),
+        stats: d.raw.as_ref().filter(|_| d.shown()).map(|raw| {
+            let lines = withdrawn.get(&(d as *const Draft)).unwrap_or(&no_lines);
+            section_stats(raw, &d.cells, &table, &ranges, lines, confidence)
+        }),
     };
-    GroupReport {
+    let report = GroupReport {
         min_cell_size: min,
         confidence,
         methods: Methods::new(min, confidence),
         notes,
+        audit: audit_notes,
+        releases: Vec::new(),
         program: finish(&program),
         splits: splits
             .iter()
@@ -808,7 +1064,51 @@ pub(super) fn build(
                 note: note.clone(),
             })
             .collect(),
+    };
+    (report, published)
+}
+
+/// A weight-change line or week point the sum audit can withhold.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+enum Line {
+    Bocf,
+    Locf,
+    Completers,
+    Week(u32),
+}
+
+impl Line {
+    fn name(self) -> String {
+        match self {
+            Line::Bocf => "weight change, baseline carried forward".into(),
+            Line::Locf => "weight change, last observation carried forward".into(),
+            Line::Completers => "weight change, completers".into(),
+            Line::Week(w) => format!("mean change in week {}", w + 1),
+        }
     }
+}
+
+/// The token standing for one person in the audit and the ledger.
+fn person_token(secret: Option<&[u8; 32]>, pseudonym: Option<u64>, position: usize) -> u64 {
+    let base = pseudonym.unwrap_or(position as u64 | 1 << 63);
+    match secret {
+        Some(key) => {
+            let h = blake3::keyed_hash(key, &base.to_le_bytes());
+            u64::from_le_bytes(h.as_bytes()[..8].try_into().expect("8 bytes"))
+        }
+        None => base,
+    }
+}
+
+/// The key of one unknown number about one person: the same person's same value (to the bit)
+/// gets the same key in every release, so that a reader's subtraction across releases is seen.
+fn atom(token: u64, tag: &str, a: f64, b: f64) -> u64 {
+    let mut h = blake3::Hasher::new();
+    h.update(&token.to_le_bytes());
+    h.update(tag.as_bytes());
+    h.update(&a.to_bits().to_le_bytes());
+    h.update(&b.to_bits().to_le_bytes());
+    u64::from_le_bytes(h.finalize().as_bytes()[..8].try_into().expect("8 bytes"))
 }
 
 fn interval_pct((lo, hi): (f64, f64)) -> Interval {
@@ -818,16 +1118,49 @@ fn interval_pct((lo, hi): (f64, f64)) -> Interval {
     }
 }
 
-fn change_stats(values: &[f64], hidden: bool, confidence: f64) -> ChangeStats {
+/// Published precision of medians and median-interval limits of % change (they are single
+/// people's values, or the mean of two): multiples of 0.5 %.
+pub const MEDIAN_STEP_PERCENT: f64 = 0.5;
+/// Published precision of medians and median-interval limits of kg change: 0.5 kg.
+pub const MEDIAN_STEP_KG: f64 = 0.5;
+/// Published precision of means, SDs and mean intervals: 0.01 (the reports print 0.1).
+pub const MEAN_STEP: f64 = 0.01;
+/// Published precision of the adherence medians: activity minutes, weigh-ins per week,
+/// food-log days per week, attendance %.
+pub const ADHERENCE_STEPS: [f64; 4] = [10.0, 0.5, 0.5, 5.0];
+
+/// `v` rounded to the nearest multiple of `step` (halves away from zero).
+pub fn round_to(v: f64, step: f64) -> f64 {
+    let r = (v / step).round() * step;
+    // Clean binary noise such as 0.30000000000000004 and −0.
+    let r = (r * 1e6).round() / 1e6;
+    if r == 0.0 { 0.0 } else { r }
+}
+
+fn change_stats(values: &[f64], hidden: bool, confidence: f64, step: f64) -> ChangeStats {
     let mci = stats::mean_ci_t(values, confidence);
     let medci = stats::median_ci(values, confidence);
+    let m = |v: f64| round_to(v, MEAN_STEP);
+    let q = |v: f64| round_to(v, step);
     ChangeStats {
-        mean: Shown::from_option(stats::mean(values), hidden),
-        sd: Shown::from_option(mci.map(|m| m.sd), hidden),
-        mean_ci: Shown::from_option(mci.map(|m| Interval { lo: m.lo, hi: m.hi }), hidden),
-        median: Shown::from_option(stats::median(values), hidden),
-        median_ci: Shown::from_option(medci.map(|m| Interval { lo: m.lo, hi: m.hi }), hidden),
-        median_ci_coverage: Shown::from_option(medci.map(|m| m.coverage), hidden),
+        mean: Shown::from_option(stats::mean(values).map(m), hidden),
+        sd: Shown::from_option(mci.map(|c| m(c.sd)), hidden),
+        mean_ci: Shown::from_option(
+            mci.map(|c| Interval {
+                lo: m(c.lo),
+                hi: m(c.hi),
+            }),
+            hidden,
+        ),
+        median: Shown::from_option(stats::median(values).map(q), hidden),
+        median_ci: Shown::from_option(
+            medci.map(|c| Interval {
+                lo: q(c.lo),
+                hi: q(c.hi),
+            }),
+            hidden,
+        ),
+        median_ci_coverage: Shown::from_option(medci.map(|c| c.coverage), hidden),
     }
 }
 
@@ -835,28 +1168,56 @@ fn section_stats(
     raw: &Raw,
     cells: &BTreeMap<Kind, CellId>,
     table: &CellTable,
+    ranges: &[Option<(u64, u64)>],
+    withdrawn: &BTreeSet<Line>,
     confidence: f64,
 ) -> SectionStats {
     let hidden = |k: Kind| table.is_suppressed(cells[&k]);
+    let range = |k: Kind| ranges.get(cells[&k]).copied().flatten();
     let count = |k: Kind| {
         if hidden(k) {
-            Shown::Suppressed
+            match range(k) {
+                Some((lo, hi)) => Shown::Range { lo, hi },
+                None => Shown::Suppressed,
+            }
         } else {
             Shown::Value(raw.count(k))
         }
     };
     let z = stats::z_for_confidence(confidence);
+    // A hidden count over a shown denominator: its share as the range its count allows (no
+    // interval: the interval would be computed from the hidden count).
     let share = |x: Kind, n: Kind| {
-        let h = hidden(x) || hidden(n);
         let (xv, nv) = (raw.count(x), raw.count(n));
+        let bounds = |k: Kind, v: u64| {
+            if hidden(k) {
+                range(k)
+            } else {
+                Some((v, v))
+            }
+        };
+        if nv > 0 && (hidden(x) || hidden(n)) {
+            let pct = match (bounds(x, xv), bounds(n, nv)) {
+                (Some((xlo, xhi)), Some((nlo, nhi))) if nlo > 0 => Shown::Range {
+                    lo: 100.0 * xlo as f64 / nhi as f64,
+                    hi: (100.0 * xhi as f64 / nlo as f64).min(100.0),
+                },
+                _ => Shown::Suppressed,
+            };
+            return (pct, Shown::Suppressed);
+        }
+        let h = hidden(x) || hidden(n);
         let pct = (nv > 0).then(|| 100.0 * xv as f64 / nv as f64);
         let ci = (nv > 0).then(|| interval_pct(stats::wilson(xv, nv, z)));
         (Shown::from_option(pct, h), Shown::from_option(ci, h))
     };
-    let line = |n: Kind, pct: &[f64], kg: &[f64]| ChangeLine {
-        n: count(n),
-        percent: change_stats(pct, hidden(n), confidence),
-        kg: change_stats(kg, hidden(n), confidence),
+    let line = |which: Line, n: Kind, pct: &[f64], kg: &[f64]| {
+        let h = hidden(n) || withdrawn.contains(&which);
+        ChangeLine {
+            n: count(n),
+            percent: change_stats(pct, h, confidence, MEDIAN_STEP_PERCENT),
+            kg: change_stats(kg, h, confidence, MEDIAN_STEP_KG),
+        }
     };
     let (retention_percent, _) = share(Kind::WithOutcome, Kind::Started);
     let milestones = MILESTONE_LOSS_PERCENT
@@ -891,22 +1252,31 @@ fn section_stats(
             _ => None,
         })
         .map(|w| {
-            let h = hidden(Kind::Week(w));
+            let h = hidden(Kind::Week(w)) || withdrawn.contains(&Line::Week(w));
             let empty = Vec::new();
             let vals = raw.weeks.get(&w).unwrap_or(&empty);
             let mci = stats::mean_ci_t(vals, confidence);
             WeekPoint {
                 week: w,
                 n: count(Kind::Week(w)),
-                mean_percent: Shown::from_option(stats::mean(vals), h),
-                ci: Shown::from_option(mci.map(|m| Interval { lo: m.lo, hi: m.hi }), h),
+                mean_percent: Shown::from_option(
+                    stats::mean(vals).map(|v| round_to(v, MEAN_STEP)),
+                    h,
+                ),
+                ci: Shown::from_option(
+                    mci.map(|m| Interval {
+                        lo: round_to(m.lo, MEAN_STEP),
+                        hi: round_to(m.hi, MEAN_STEP),
+                    }),
+                    h,
+                ),
             }
         })
         .collect();
     let adherence_line = |i: usize| AdherenceLine {
         n: count(Kind::AdherenceN(i)),
         median: Shown::from_option(
-            stats::median(&raw.adherence[i]),
+            stats::median(&raw.adherence[i]).map(|v| round_to(v, ADHERENCE_STEPS[i])),
             hidden(Kind::AdherenceN(i)),
         ),
     };
@@ -923,9 +1293,14 @@ fn section_stats(
             retention_percent,
         },
         weight_change: WeightChange {
-            bocf: line(Kind::Started, &raw.bocf_pct, &raw.bocf_kg),
-            locf: line(Kind::Started, &raw.locf_pct, &raw.locf_kg),
-            completers: line(Kind::WithOutcome, &raw.comp_pct, &raw.comp_kg),
+            bocf: line(Line::Bocf, Kind::Started, &raw.bocf_pct, &raw.bocf_kg),
+            locf: line(Line::Locf, Kind::Started, &raw.locf_pct, &raw.locf_kg),
+            completers: line(
+                Line::Completers,
+                Kind::WithOutcome,
+                &raw.comp_pct,
+                &raw.comp_kg,
+            ),
         },
         milestones,
         histogram: Histogram {

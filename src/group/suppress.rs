@@ -31,6 +31,8 @@ struct Cell {
     value: u64,
     priority: u8,
     suppressed: bool,
+    /// A primary cell whose "1 to min − 1" bound is not printed (see `apply_with_ranges`).
+    unbounded: bool,
 }
 
 /// One additive relation `total = Σ parts` between cells.
@@ -67,6 +69,7 @@ impl CellTable {
             value,
             priority,
             suppressed: false,
+            unbounded: false,
         });
         self.cells.len() - 1
     }
@@ -84,6 +87,16 @@ impl CellTable {
         self.relations.push(Relation { total, parts });
     }
 
+    /// Number of cells.
+    pub fn len(&self) -> usize {
+        self.cells.len()
+    }
+
+    /// True when the table has no cells.
+    pub fn is_empty(&self) -> bool {
+        self.cells.is_empty()
+    }
+
     /// The value of a cell (shown or not).
     pub fn value(&self, c: CellId) -> u64 {
         self.cells[c].value
@@ -97,6 +110,122 @@ impl CellTable {
     /// The relations of the table.
     pub fn relations(&self) -> &[Relation] {
         &self.relations
+    }
+
+    /// Marks a cell hidden before (or between runs of) [`CellTable::apply`], e.g. because an
+    /// earlier release would give it away by subtraction.
+    pub fn force_hide(&mut self, c: CellId) {
+        self.cells[c].suppressed = true;
+    }
+
+    /// True when the cell is hidden because its own value is 1 … min − 1 (primary
+    /// suppression), so that "1 to min − 1" may be printed for it.
+    pub fn is_primary(&self, c: CellId, min_cell_size: u32) -> bool {
+        let v = self.cells[c].value;
+        self.cells[c].suppressed && v >= 1 && v < u64::from(min_cell_size)
+    }
+
+    /// Suppression plus the interval audit: [`CellTable::apply`], then the range every hidden
+    /// cell can take given the shown cells, the relations and the published rule that a
+    /// primary-suppressed cell lies in 1 … min − 1 ([`CellTable::ranges`]). When a hidden
+    /// non-zero cell is narrowed to fewer than three possible values, the "1 … min − 1" bound
+    /// of the primary cells sharing a relation with it is no longer used (their ranges then
+    /// follow from the other figures alone); if there is none, the cell gets one more
+    /// complement. The whole check repeats until no cell is narrowed. Returns the ranges (`None` for shown cells).
+    pub fn apply_with_ranges(&mut self, min_cell_size: u32) -> Vec<Option<(u64, u64)>> {
+        loop {
+            self.apply(min_cell_size);
+            let ranges = self.ranges(min_cell_size);
+            let narrow = (0..self.cells.len()).find(|&i| {
+                self.cells[i].value != 0 && ranges[i].is_some_and(|(lo, hi)| hi < lo + 2)
+            });
+            let Some(u) = narrow else { return ranges };
+            // First stop printing "1 to min − 1" for the primary cells linked to it through
+            // hidden cells (their bounds add up); only then hide one more cell.
+            let around: Vec<CellId> = self
+                .hidden_component(u)
+                .into_iter()
+                .filter(|&m| self.is_primary(m, min_cell_size) && !self.cells[m].unbounded)
+                .collect();
+            if !around.is_empty() {
+                for m in around {
+                    self.cells[m].unbounded = true;
+                }
+                continue;
+            }
+            match self.complement_near(u) {
+                Some(c) => self.cells[c].suppressed = true,
+                None => {
+                    // Nothing left to hide near it: show no range for anything linked.
+                    return vec![None; self.cells.len()];
+                }
+            }
+        }
+    }
+
+    /// For every hidden cell, the smallest and largest value (whole numbers, widened to the
+    /// nearest integers outward) consistent with the shown cells, the relations, non-negative
+    /// counts and `1 ≤ x ≤ min − 1` for primary-suppressed cells (unless that bound was dropped): two linear programs per
+    /// hidden cell, solved with `microlp` 0.7 (simplex). `None` for shown cells and for a
+    /// hidden cell whose programs cannot be solved (no range is then printed).
+    pub fn ranges(&self, min_cell_size: u32) -> Vec<Option<(u64, u64)>> {
+        use microlp::{ComparisonOp, OptimizationDirection, Problem, SolveOutcome};
+        let hidden: Vec<CellId> = (0..self.cells.len())
+            .filter(|&c| self.cells[c].suppressed)
+            .collect();
+        let mut out = vec![None; self.cells.len()];
+        if hidden.is_empty() {
+            return out;
+        }
+        let solve = |target: CellId, dir: OptimizationDirection| -> Option<f64> {
+            let mut p = Problem::new(dir);
+            let mut var = std::collections::HashMap::new();
+            for &c in &hidden {
+                let bounds = if self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
+                    (1.0, f64::from(min_cell_size) - 1.0)
+                } else {
+                    (0.0, f64::INFINITY)
+                };
+                let coef = if c == target { 1.0 } else { 0.0 };
+                var.insert(c, p.add_var(coef, bounds));
+            }
+            for r in &self.relations {
+                // total − Σ parts = 0, shown cells moved to the right-hand side.
+                let mut terms: Vec<(microlp::Variable, f64)> = Vec::new();
+                let mut rhs = 0.0;
+                for (m, sign) in std::iter::once((r.total, 1.0))
+                    .chain(r.parts.iter().map(|&p| (p, -1.0)))
+                {
+                    match var.get(&m) {
+                        Some(&v) => terms.push((v, sign)),
+                        None => rhs -= sign * self.cells[m].value as f64,
+                    }
+                }
+                if !terms.is_empty() {
+                    p.add_constraint(terms.as_slice(), ComparisonOp::Eq, rhs);
+                }
+            }
+            match p.solve().ok()? {
+                SolveOutcome::Solution(s) => Some(s.objective()),
+                _ => None,
+            }
+        };
+        for &c in &hidden {
+            let lo = solve(c, OptimizationDirection::Minimize);
+            let hi = solve(c, OptimizationDirection::Maximize);
+            // A cell no relation bounds (unbounded program) gets no range.
+            if let (Some(lo), Some(hi)) = (lo, hi)
+                && lo.is_finite()
+                && hi.is_finite()
+            {
+                // Whole numbers inside the LP range contain every whole-number solution
+                // (1e-6 absorbs the solver's feasibility tolerance).
+                let lo = (lo - 1e-6).ceil().max(0.0) as u64;
+                let hi = (hi + 1e-6).floor().max(0.0) as u64;
+                out[c] = Some((lo.min(hi), hi));
+            }
+        }
+        out
     }
 
     /// Runs primary and complementary suppression for the given minimum cell size.
@@ -127,6 +256,26 @@ impl CellTable {
                 }
             }
         }
+    }
+
+    /// The hidden cells linked to `u` through relations and other hidden cells (with `u`).
+    fn hidden_component(&self, u: CellId) -> Vec<CellId> {
+        let mut seen = vec![false; self.cells.len()];
+        seen[u] = true;
+        let mut stack = vec![u];
+        let mut out = vec![u];
+        while let Some(c) = stack.pop() {
+            for r in self.relations.iter().filter(|r| r.members().any(|m| m == c)) {
+                for m in r.members() {
+                    if self.cells[m].suppressed && !seen[m] {
+                        seen[m] = true;
+                        stack.push(m);
+                        out.push(m);
+                    }
+                }
+            }
+        }
+        out
     }
 
     /// Step 2: every relation with exactly one hidden member gets a complement.
@@ -166,7 +315,7 @@ impl CellTable {
 
     /// Step 3 complement for a determined cell `u`: searched first in the relations containing
     /// `u`, then breadth-first in relations reached through other hidden cells.
-    fn complement_near(&self, u: CellId) -> Option<CellId> {
+    pub fn complement_near(&self, u: CellId) -> Option<CellId> {
         let mut seen_cells = vec![false; self.cells.len()];
         let mut seen_rel = vec![false; self.relations.len()];
         let mut frontier = vec![u];

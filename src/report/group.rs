@@ -1,6 +1,7 @@
 //! The group report model: the de-identified statistics of [`crate::group`] turned into display
-//! tables and charts. Suppressed figures print as "suppressed"; figures that cannot be computed
-//! print as "–". No names, no ids.
+//! tables and charts. A hidden count prints as the range the rest of the report already implies
+//! ("1–10", "at least 79 %"), or as "not shown (small numbers)" with the reason in the
+//! section's notes; figures that cannot be computed print as "–". No names, no ids.
 
 use super::format as fmt;
 use super::{ChartView, Kv, ProgramView, TableView, cautions};
@@ -27,6 +28,9 @@ pub struct GroupReportContext {
     pub cautions: Vec<String>,
     /// Smallest count shown.
     pub min_cell_size: u32,
+    /// Month over month: the whole-program headline figures of every release so far, as they
+    /// were published (from the ledger), oldest first; empty without a ledger.
+    pub releases: TableView,
 }
 
 /// One section (the program, a site, …).
@@ -34,6 +38,9 @@ pub struct GroupReportContext {
 pub struct SectionView {
     /// `Whole program` or `Site: Kiln Row`.
     pub title: String,
+    /// The section's own label (`Kiln Row`), as the audit notes name it.
+    #[serde(skip)]
+    pub label: String,
     /// Anchor id.
     pub anchor: String,
     /// Why the section is withheld, when it is.
@@ -50,6 +57,10 @@ pub struct SectionView {
     pub adherence: TableView,
     /// Charts of this section (names of the drawn charts, with their text alternative and data).
     pub charts: Vec<NamedChartView>,
+    /// Charts not drawn because their figures are hidden: title, why, and the data table.
+    pub undrawn: Vec<ChartView>,
+    /// Figures of this section withheld or shown as ranges by the audit, and why.
+    pub audit_notes: Vec<String>,
     /// Names of the drawn charts (for the PDF layout).
     #[serde(skip)]
     pub chart_names: Vec<String>,
@@ -73,10 +84,15 @@ pub struct GroupReportModel {
     pub charts: Vec<(String, Chart)>,
 }
 
+/// What a hidden figure without a range prints: short, with the reason in the section notes.
+const HIDDEN: &str = "not shown (small numbers)";
+
 fn count(s: &Shown<u64>) -> String {
     match s {
         Shown::Value(v) => v.to_string(),
-        Shown::Suppressed => "suppressed".into(),
+        Shown::Range { lo, hi } if lo == hi => lo.to_string(),
+        Shown::Range { lo, hi } => format!("{lo}–{hi}"),
+        Shown::Suppressed => HIDDEN.into(),
         Shown::NotAvailable => "–".into(),
     }
 }
@@ -84,7 +100,18 @@ fn count(s: &Shown<u64>) -> String {
 fn num(s: &Shown<f64>, decimals: usize, suffix: &str) -> String {
     match s {
         Shown::Value(v) => format!("{}{suffix}", fmt::fixed(*v, decimals)),
-        Shown::Suppressed => "suppressed".into(),
+        // A share known only as a range: widened outward to whole numbers.
+        Shown::Range { lo, hi } => {
+            let (lo, hi) = ((lo - 1e-9).floor(), (hi + 1e-9).ceil());
+            if hi >= 100.0 && lo > 0.0 {
+                format!("at least {}{suffix}", fmt::fixed(lo, 0))
+            } else if lo <= 0.0 && hi < 100.0 {
+                format!("at most {}{suffix}", fmt::fixed(hi, 0))
+            } else {
+                format!("{}–{}{suffix}", fmt::fixed(lo, 0), fmt::fixed(hi, 0))
+            }
+        }
+        Shown::Suppressed => HIDDEN.into(),
         Shown::NotAvailable => "–".into(),
     }
 }
@@ -96,7 +123,7 @@ fn interval(s: &Shown<Interval>, decimals: usize) -> String {
             fmt::fixed(i.lo, decimals),
             fmt::fixed(i.hi, decimals)
         ),
-        Shown::Suppressed => "suppressed".into(),
+        Shown::Suppressed | Shown::Range { .. } => HIDDEN.into(),
         Shown::NotAvailable => "–".into(),
     }
 }
@@ -115,6 +142,64 @@ fn median_with_n(median: String, n: &Shown<u64>) -> String {
     match n {
         Shown::Value(0) => "no data in this period".into(),
         _ => format!("{median} ({})", count(n)),
+    }
+}
+
+/// The month-over-month table (whole program, as published in each release).
+fn releases_table(g: &GroupReport) -> TableView {
+    if g.releases.is_empty() {
+        return TableView::default();
+    }
+    TableView {
+        header: vec![
+            "Period".into(),
+            "Started".into(),
+            "Weighed in recently (retention)".into(),
+            "Mean change, baseline carried forward".into(),
+            "Reached 5 % loss".into(),
+        ],
+        rows: g
+            .releases
+            .iter()
+            .map(|r| {
+                vec![
+                    r.period.clone(),
+                    r.started.clone(),
+                    r.retention.clone(),
+                    r.mean_change.clone(),
+                    r.reached_5.clone(),
+                ]
+            })
+            .collect(),
+    }
+}
+
+/// The headline figures of the whole program as this report prints them (what the ledger keeps
+/// for the month-over-month table).
+pub fn headline(g: &GroupReport, period: &str) -> crate::group::ReleaseLine {
+    let st = g.program.stats.as_ref();
+    let or_withheld = |f: &dyn Fn(&SectionStats) -> String| {
+        st.map_or_else(|| "withheld (too few people)".to_string(), f)
+    };
+    crate::group::ReleaseLine {
+        period: period.to_string(),
+        started: or_withheld(&|s| count(&s.enrolment.started)),
+        retention: or_withheld(&|s| {
+            format!(
+                "{} ({})",
+                count(&s.enrolment.with_outcome),
+                num(&s.enrolment.retention_percent, 0, " %")
+            )
+        }),
+        mean_change: or_withheld(&|s| num(&s.weight_change.bocf.percent.mean, 1, " %")),
+        reached_5: or_withheld(&|s| {
+            s.milestones
+                .iter()
+                .find(|m| (m.loss_at_least_percent - 5.0).abs() < 1e-9)
+                .map_or("–".into(), |m| {
+                    format!("{} ({})", count(&m.reached), num(&m.percent, 0, " %"))
+                })
+        }),
     }
 }
 
@@ -168,6 +253,21 @@ pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupRepo
         Kv::new("Small cells", &m.suppression),
         Kv::new("Small groups", &m.small_groups),
     ];
+    let mut sections = sections;
+    for sv in &mut sections {
+        // One sentence per rule, listing the figures it applied to.
+        let mut by_rule: Vec<(&str, Vec<&str>)> = Vec::new();
+        for a in g.audit.iter().filter(|a| sv.label == a.section) {
+            match by_rule.iter_mut().find(|(r, _)| *r == a.rule) {
+                Some((_, figs)) => figs.push(&a.figure),
+                None => by_rule.push((&a.rule, vec![&a.figure])),
+            }
+        }
+        sv.audit_notes = by_rule
+            .into_iter()
+            .map(|(rule, figs)| format!("{}: {}.", rule, figs.join("; ")))
+            .collect();
+    }
     let ctx = GroupReportContext {
         program: ProgramView::new(plan),
         notes,
@@ -175,6 +275,7 @@ pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupRepo
         methods,
         cautions: cautions::group(g.min_cell_size),
         min_cell_size: g.min_cell_size,
+        releases: releases_table(g),
     };
     GroupReportModel { ctx, charts }
 }
@@ -188,6 +289,7 @@ fn section(
 ) -> SectionView {
     let mut view = SectionView {
         title: title.into(),
+        label: s.label.clone(),
         anchor: anchor.into(),
         withheld: s.withheld.clone(),
         enrolment: TableView::default(),
@@ -196,6 +298,8 @@ fn section(
         milestones: TableView::default(),
         adherence: TableView::default(),
         charts: Vec::new(),
+        undrawn: Vec::new(),
+        audit_notes: Vec::new(),
         chart_names: Vec::new(),
     };
     let Some(st) = &s.stats else {
@@ -353,6 +457,25 @@ fn fill(
             .map(|b| vec![b.label.to_string(), count(&b.count)])
             .collect(),
     };
+    let hidden_bins = st
+        .histogram
+        .bins
+        .iter()
+        .filter(|b| !matches!(b.count, Shown::Value(_)))
+        .count();
+    if hidden_bins > 0 {
+        // No chart with empty bars on a meaningless axis: say what is missing, show the table.
+        view.undrawn.push(ChartView {
+            title: "Distribution of weight change".into(),
+            alt: format!(
+                "Not drawn as a chart: {hidden_bins} of the {} bands hold too few people to show \
+                 exactly, so their counts are given below as the ranges the rest of this report \
+                 already implies.",
+                st.histogram.bins.len()
+            ),
+            table: hist_table,
+        });
+    } else {
     charts.push((
         hist_name.clone(),
         Chart::Bars(BarChart {
@@ -372,6 +495,7 @@ fn fill(
         },
     });
     view.chart_names.push(hist_name);
+    }
 
     // Mean trajectory by week since enrolment (weeks with a shown mean only).
     let start = plan.program.info.start;
@@ -435,5 +559,13 @@ fn fill(
             },
         });
         view.chart_names.push(name);
+    } else if !st.trajectory.is_empty() {
+        view.undrawn.push(ChartView {
+            title: "Mean weight change by week".into(),
+            alt: "Not drawn: fewer than two weeks have enough people for a mean that reveals \
+                  nobody's own change."
+                .into(),
+            table: TableView::default(),
+        });
     }
 }

@@ -226,6 +226,13 @@ pub fn group(g: &GroupReportModel) -> Result<Vec<u8>, RenderError> {
     for note in &c.notes {
         b.push(Block::Paragraph(note.clone()));
     }
+    if !c.releases.rows.is_empty() {
+        b.push(Block::Heading {
+            level: 2,
+            text: "Month over month (whole program, as each report printed it)".into(),
+        });
+        b.push(table(&c.releases, vec![1.6, 0.8, 1.4, 1.3, 1.2]));
+    }
     for s in &c.sections {
         b.push(Block::Heading {
             level: 2,
@@ -246,6 +253,9 @@ pub fn group(g: &GroupReportModel) -> Result<Vec<u8>, RenderError> {
         });
         b.push(table(&s.outcomes, vec![2.6, 0.9, 1.6, 1.6]));
         b.push(Block::Small(s.outcomes_note.clone()));
+        for n in &s.audit_notes {
+            b.push(Block::Small(n.clone()));
+        }
         b.push(Block::Heading {
             level: 3,
             text: "Share reaching a loss milestone (intention-to-treat)".into(),
@@ -254,6 +264,16 @@ pub fn group(g: &GroupReportModel) -> Result<Vec<u8>, RenderError> {
         for name in &s.chart_names {
             if let Some((_, ch)) = g.charts.iter().find(|(n, _)| n == name) {
                 b.push(Block::Chart(ch.clone()));
+            }
+        }
+        for u in &s.undrawn {
+            b.push(Block::Heading {
+                level: 3,
+                text: u.title.clone(),
+            });
+            b.push(Block::Small(u.alt.clone()));
+            if !u.table.rows.is_empty() {
+                b.push(table(&u.table, vec![2.0, 1.2]));
             }
         }
         b.push(Block::Heading {

@@ -1,0 +1,438 @@
+//! Subtraction attacks on published group reports, written as attackers that read the
+//! serialised reports (what a sponsor holds) and know, as the worst case, who is in every site
+//! and who lacks a recent weigh-in. Each attacker must recover nothing: no combination of
+//! published sums that involves fewer than the minimum cell size of people.
+//!
+//! The attacker is independent of the audit code: it lists the published sums (a mean printed
+//! with its n is a sum) as rows over per-person unknowns, and for every group T of
+//! `min − 1` people (enough: a group that leaks stays leaking when people are added) tests by
+//! floating-point elimination whether some non-zero combination of the rows involves only
+//! unknowns of T. Each test also runs the attacker on the unprotected figures, to show that
+//! the attack it stands for is real.
+
+use std::collections::BTreeMap;
+
+use serde_json::Value;
+
+use super::summary::build;
+use super::*;
+
+/// One participant in the attacker's world: a name (never in any report) and their row.
+#[derive(Clone)]
+struct Person {
+    name: String,
+    row: ParticipantSummary,
+}
+
+fn person(name: &str, site: &str, change: f64, outcome: bool, locf: f64) -> Person {
+    let b = 100.0;
+    Person {
+        name: name.into(),
+        row: ParticipantSummary {
+            groups: BTreeMap::from([("site".to_string(), site.to_string())]),
+            enrolled: true,
+            started: true,
+            baseline_kg: Some(b),
+            outcome_kg: outcome.then_some(b * (1.0 + change / 100.0)),
+            last_observed_kg: Some(b * (1.0 + locf / 100.0)),
+            pseudonym: Some(pseudonym(name)),
+            ..Default::default()
+        },
+    }
+}
+
+/// One release as the attacker holds it: the serialised report and the true rows (the
+/// attacker's worst-case side knowledge of memberships; values are the unknowns).
+struct Release {
+    report: Value,
+    people: Vec<Person>,
+}
+
+/// An unknown of the attacker: (person name, what, value bits). The same person's same value
+/// in two releases is the same unknown.
+type Unknown = (String, &'static str, u64);
+
+fn pct(r: &ParticipantSummary, w: f64) -> f64 {
+    let b = r.baseline_kg.unwrap();
+    100.0 * (w - b) / b
+}
+
+/// Every published sum of a release as its set of unknowns.
+fn published_sums(rel: &Release) -> Vec<Vec<Unknown>> {
+    let mut sections: Vec<(Vec<&Person>, &Value)> = Vec::new();
+    let started: Vec<&Person> = rel.people.iter().filter(|p| p.row.started).collect();
+    if let Some(st) = rel.report["program"].get("stats").filter(|s| !s.is_null()) {
+        sections.push((started.clone(), st));
+    }
+    for split in rel.report["splits"].as_array().unwrap() {
+        for sec in split["sections"].as_array().unwrap() {
+            let Some(st) = sec.get("stats").filter(|s| !s.is_null()) else {
+                continue;
+            };
+            let labels: Vec<String> = if sec["kind"] == "combined" {
+                sec["members"]
+                    .as_array()
+                    .unwrap()
+                    .iter()
+                    .map(|m| m.as_str().unwrap().to_string())
+                    .collect()
+            } else {
+                vec![sec["label"].as_str().unwrap().to_string()]
+            };
+            let members = started
+                .iter()
+                .copied()
+                .filter(|p| labels.contains(&p.row.groups["site"]))
+                .collect();
+            sections.push((members, st));
+        }
+    }
+    let shown = |v: &Value| v.get("value").is_some();
+    let mut sums = Vec::new();
+    for (members, st) in sections {
+        let change = |p: &Person| -> Option<Unknown> {
+            let w = p.row.outcome_kg?;
+            Some((p.name.clone(), "change", pct(&p.row, w).to_bits()))
+        };
+        let carried = |p: &Person| -> Unknown {
+            let w = p.row.outcome_kg.or(p.row.last_observed_kg).unwrap();
+            (p.name.clone(), "change", pct(&p.row, w).to_bits())
+        };
+        let wc = &st["weight_change"];
+        for line in ["bocf", "completers"] {
+            if shown(&wc[line]["n"]) && shown(&wc[line]["percent"]["mean"]) {
+                sums.push(members.iter().filter_map(|p| change(p)).collect());
+            }
+        }
+        if shown(&wc["locf"]["n"]) && shown(&wc["locf"]["percent"]["mean"]) {
+            sums.push(members.iter().map(|p| carried(p)).collect());
+        }
+        for wp in st["trajectory"].as_array().unwrap() {
+            if shown(&wp["n"]) && shown(&wp["mean_percent"]) {
+                let w = wp["week"].as_u64().unwrap() as u32;
+                sums.push(
+                    members
+                        .iter()
+                        .filter_map(|p| {
+                            let v = p
+                                .row
+                                .weekly_change_percent
+                                .iter()
+                                .rev()
+                                .find(|(ww, _)| *ww == w)?
+                                .1;
+                            Some((p.name.clone(), "week", v.to_bits() ^ u64::from(w)))
+                        })
+                        .collect(),
+                );
+            }
+        }
+    }
+    sums
+}
+
+fn rank(rows: &[Vec<f64>]) -> usize {
+    let mut m: Vec<Vec<f64>> = rows.to_vec();
+    let ncols = m.first().map_or(0, |r| r.len());
+    let mut r = 0;
+    for c in 0..ncols {
+        let Some(p) = (r..m.len()).find(|&i| m[i][c].abs() > 1e-9) else {
+            continue;
+        };
+        m.swap(r, p);
+        let piv = m[r].clone();
+        for (i, row) in m.iter_mut().enumerate() {
+            if i != r && row[c].abs() > 1e-9 {
+                let f = row[c] / piv[c];
+                for (v, pv) in row.iter_mut().zip(&piv) {
+                    *v -= f * pv;
+                }
+            }
+        }
+        r += 1;
+    }
+    r
+}
+
+fn subsets(n: usize, k: usize, f: &mut dyn FnMut(&[usize])) {
+    fn go(n: usize, k: usize, start: usize, cur: &mut Vec<usize>, f: &mut dyn FnMut(&[usize])) {
+        if cur.len() == k {
+            f(cur);
+            return;
+        }
+        for i in start..n {
+            cur.push(i);
+            go(n, k, i + 1, cur, f);
+            cur.pop();
+        }
+    }
+    go(n, k, 0, &mut Vec::new(), f);
+}
+
+/// The groups of fewer than `min` people whose total (or any combination of their values)
+/// the attacker can derive from all releases together. Empty = the attack recovers nothing.
+fn attack(releases: &[Release], min: usize) -> Vec<Vec<String>> {
+    let sums: Vec<Vec<Unknown>> = releases.iter().flat_map(published_sums).collect();
+    let mut unknowns: BTreeMap<Unknown, usize> = BTreeMap::new();
+    for s in &sums {
+        for u in s {
+            let n = unknowns.len();
+            unknowns.entry(u.clone()).or_insert(n);
+        }
+    }
+    let rows: Vec<Vec<f64>> = sums
+        .iter()
+        .map(|s| {
+            let mut r = vec![0.0; unknowns.len()];
+            for u in s {
+                r[unknowns[u]] = 1.0;
+            }
+            r
+        })
+        .collect();
+    let full = rank(&rows);
+    let mut names: Vec<String> = unknowns.keys().map(|u| u.0.clone()).collect();
+    names.sort();
+    names.dedup();
+    let k = (min - 1).min(names.len());
+    let mut found = Vec::new();
+    subsets(names.len(), k, &mut |t| {
+        let group: Vec<&String> = t.iter().map(|&i| &names[i]).collect();
+        let outside: Vec<usize> = unknowns
+            .iter()
+            .filter(|(u, _)| !group.contains(&&u.0))
+            .map(|(_, &c)| c)
+            .collect();
+        let reduced: Vec<Vec<f64>> = rows
+            .iter()
+            .map(|r| outside.iter().map(|&c| r[c]).collect())
+            .collect();
+        if rank(&reduced) < full {
+            found.push(group.into_iter().cloned().collect());
+        }
+    });
+    found
+}
+
+fn opts(min: u32) -> GroupOptions {
+    GroupOptions {
+        min_cell_size: min,
+        group_by: vec!["site".into()],
+        confidence: 0.95,
+    }
+}
+
+fn secret() -> History {
+    History {
+        secret: Some([7; 32]),
+        ..Default::default()
+    }
+}
+
+fn rows(people: &[Person]) -> Vec<ParticipantSummary> {
+    people.iter().map(|p| p.row.clone()).collect()
+}
+
+/// Releases in order, each audited against the ledger of the earlier ones.
+fn publish_in_order(months: &[Vec<Person>], min: u32) -> Vec<Release> {
+    let mut history = secret();
+    let mut out = Vec::new();
+    for people in months {
+        let (report, published) = summarize_release(&rows(people), &opts(min), &history);
+        history.sums.extend(published.sums);
+        history.counts.extend(published.counts);
+        out.push(Release {
+            report: serde_json::to_value(report).unwrap(),
+            people: people.clone(),
+        });
+    }
+    out
+}
+
+/// The same releases without the audit's protection (figures as computed): the attack works.
+fn unprotected(months: &[Vec<Person>], min: u32) -> Vec<Release> {
+    months
+        .iter()
+        .map(|people| Release {
+            report: serde_json::to_value(build(&rows(people), &opts(0), true, &secret()).0)
+                .unwrap(),
+            people: people.clone(),
+        })
+        .map(|mut r| {
+            r.report["min_cell_size"] = min.into();
+            r
+        })
+        .collect()
+}
+
+fn cohort(n: usize, sites: &[&str], missing: &[usize], seed: u64) -> Vec<Person> {
+    let mut x = seed;
+    let mut next = || {
+        x = x
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        (x >> 11) as f64 / (1u64 << 53) as f64
+    };
+    (0..n)
+        .map(|i| {
+            let change = -10.0 + 12.0 * next();
+            person(
+                &format!("P{i:02}"),
+                sites[i % sites.len()],
+                change,
+                !missing.contains(&i),
+                change / 2.0,
+            )
+        })
+        .collect()
+}
+
+#[test]
+fn itt_variants_reveal_nothing_about_the_people_without_a_recent_weigh_in() {
+    // 30 started, 3 without a recent weigh-in, minimum 5: LOCF − BOCF = their LOCF total.
+    let month = cohort(30, &["Kiln Row"], &[2, 7, 11], 1);
+    let min = 5;
+    assert!(
+        !attack(&unprotected(std::slice::from_ref(&month), min), min as usize).is_empty(),
+        "the unprotected report leaks (the attack is real)"
+    );
+    let rel = publish_in_order(&[month], min);
+    assert_eq!(attack(&rel, min as usize), Vec::<Vec<String>>::new());
+    // The primary line still tells the sponsor how much was lost.
+    let bocf = &rel[0].report["program"]["stats"]["weight_change"]["bocf"]["percent"]["mean"];
+    assert!(
+        bocf.get("value").is_some(),
+        "{bocf} {} {}",
+        rel[0].report["program"]["stats"]["enrolment"],
+        rel[0].report["audit"]
+    );
+}
+
+#[test]
+fn completers_and_itt_and_splits_against_the_whole_reveal_nothing() {
+    // Two sites; in one, only a few people lack a recent weigh-in, so the site's completers
+    // line and ITT line, and the whole program minus the other site, are all candidates.
+    let month = cohort(18, &["Kiln Row", "Harbour Yard"], &[1, 3, 4], 2);
+    let min = 5;
+    assert!(!attack(&unprotected(std::slice::from_ref(&month), min), min as usize).is_empty());
+    let rel = publish_in_order(&[month], min);
+    assert_eq!(attack(&rel, min as usize), Vec::<Vec<String>>::new());
+}
+
+#[test]
+fn reissue_after_one_file_was_fixed_reveals_nothing() {
+    // First issue: P05 has no recent weigh-in; the re-issue of the same month has it.
+    let first = cohort(16, &["Kiln Row"], &[5, 9, 12, 13, 14, 15], 3);
+    let mut fixed = first.clone();
+    let b = fixed[5].row.baseline_kg.unwrap();
+    fixed[5].row.outcome_kg = Some(b * 0.93);
+    let min = 5;
+    let months = [first, fixed];
+    assert!(!attack(&unprotected(&months, min), min as usize).is_empty());
+    let rel = publish_in_order(&months, min);
+    assert_eq!(attack(&rel, min as usize), Vec::<Vec<String>>::new());
+    // The re-issue still shows the primary line or says why not, per the audit notes.
+    let audit = rel[1].report["audit"].as_array().unwrap();
+    let bocf = &rel[1].report["program"]["stats"]["weight_change"]["bocf"]["percent"]["mean"];
+    assert!(bocf.get("value").is_some() || !audit.is_empty());
+}
+
+#[test]
+fn one_person_joining_or_leaving_between_months_reveals_nothing() {
+    let min = 5;
+    let mut month1 = cohort(14, &["Kiln Row"], &[], 4);
+    for p in &mut month1 {
+        p.row.weekly_change_percent = vec![(0, -1.0 - p.name.len() as f64 / 10.0), (1, -2.5)];
+    }
+    // Joining: the same people with the same figures, plus one newcomer.
+    let mut joined = month1.clone();
+    let mut newcomer = person("P99", "Kiln Row", -6.0, true, -3.0);
+    newcomer.row.weekly_change_percent = vec![(0, -0.7), (1, -1.9)];
+    joined.push(newcomer);
+    let months = [month1.clone(), joined];
+    assert!(!attack(&unprotected(&months, min), min as usize).is_empty());
+    assert_eq!(
+        attack(&publish_in_order(&months, min), min as usize),
+        Vec::<Vec<String>>::new()
+    );
+    // Leaving: one person gone the next month, everyone else unchanged.
+    let left: Vec<Person> = month1[1..].to_vec();
+    let months = [month1, left];
+    assert!(!attack(&unprotected(&months, min), min as usize).is_empty());
+    assert_eq!(
+        attack(&publish_in_order(&months, min), min as usize),
+        Vec::<Vec<String>>::new()
+    );
+}
+
+#[test]
+fn random_small_programs_leak_no_small_total() {
+    // Bounded property test: 24 generated programs of 10–17 people in two or three sites,
+    // random missing outcomes and a few weeks of trajectory; the brute-force attacker over
+    // every group of min − 1 people must find nothing.
+    let mut leaky_unprotected = 0;
+    for seed in 0..24u64 {
+        let mut x = seed.wrapping_add(11);
+        let mut next = || {
+            x = x
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (x >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let n = 10 + (next() * 8.0) as usize;
+        let sites: &[&str] = if next() < 0.5 {
+            &["Kiln Row", "Harbour Yard"]
+        } else {
+            &["Kiln Row", "Harbour Yard", "Mill Street"]
+        };
+        let missing: Vec<usize> = (0..n).filter(|_| next() < 0.25).collect();
+        let mut month = cohort(n, sites, &missing, seed);
+        for p in &mut month {
+            let weeks = (next() * 3.0) as u32;
+            p.row.weekly_change_percent = (0..weeks).map(|w| (w, -next() * 3.0)).collect();
+        }
+        let min = 4 + (seed % 2) as u32;
+        if !attack(&unprotected(std::slice::from_ref(&month), min), min as usize).is_empty() {
+            leaky_unprotected += 1;
+        }
+        let rel = publish_in_order(&[month], min);
+        assert_eq!(
+            attack(&rel, min as usize),
+            Vec::<Vec<String>>::new(),
+            "seed {seed}"
+        );
+    }
+    assert!(leaky_unprotected > 12, "the generator makes attackable programs");
+}
+
+#[test]
+fn ranges_contain_the_truth_and_never_pin_a_small_count() {
+    for seed in 0..6u64 {
+        let month = cohort(
+            40 + seed as usize,
+            &["Kiln Row", "Harbour Yard", "Mill Street"],
+            &[3, 8, 9, 20, 31],
+            seed,
+        );
+        let r = summarize_release(&rows(&month), &opts(11), &secret()).0;
+        let truth = build(&rows(&month), &opts(0), false, &secret()).0;
+        let (s, t) = (r.program.stats.unwrap(), truth.program.stats.unwrap());
+        let pairs = [
+            (s.enrolment.active, t.enrolment.active),
+            (s.enrolment.withdrawn, t.enrolment.withdrawn),
+            (s.enrolment.with_outcome, t.enrolment.with_outcome),
+            (s.enrolment.without_outcome, t.enrolment.without_outcome),
+        ];
+        for (shown, true_value) in pairs {
+            let v = *true_value.value().unwrap();
+            match shown {
+                Shown::Value(x) => assert_eq!(x, v),
+                Shown::Range { lo, hi } => {
+                    assert!(lo <= v && v <= hi, "{lo}–{hi} misses {v}");
+                    assert!(hi >= lo + 2, "{lo}–{hi} pins {v}");
+                }
+                other => panic!("a count of the whole program is not shown at all: {other:?}"),
+            }
+        }
+    }
+}

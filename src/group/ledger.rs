@@ -1,0 +1,206 @@
+//! The ledger: what earlier group reports published, kept so that each new report is audited
+//! together with them (a sponsor keeps every monthly report and every re-issue).
+//!
+//! The ledger lives in a state folder of the user's choice (`--state DIR`; default: the output
+//! folder's name plus `.ledger`, beside it — never inside the program's inputs). It holds:
+//! - `secret.key`: 32 random bytes created on first use. Person tokens are a keyed hash of a
+//!   hash of the participant id, so the ledger names nobody and cannot be matched against ids
+//!   without this key.
+//! - `ledger.json`: one entry per release (program id, period, as-of date): every exact count it
+//!   printed as the set of person tokens counted, every mean printed with its n as the list of
+//!   (person token, value key) it sums — value keys are hashes, no value is stored — and the
+//!   whole program's headline figures as printed, for the month-over-month table.
+//!
+//! Writes replace the file atomically (temporary file, then rename). An identical release
+//! (same period and the same published facts, e.g. a re-run) is recorded once.
+
+use std::io::{Read, Write};
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+use super::{History, Published, ReleaseLine};
+
+const LEDGER_FILE: &str = "ledger.json";
+const KEY_FILE: &str = "secret.key";
+const FORMAT: u32 = 1;
+
+/// One recorded release.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ReleaseRecord {
+    /// Program id.
+    pub program: String,
+    /// First day of the period.
+    pub period_from: String,
+    /// Last day of the period.
+    pub period_to: String,
+    /// The as-of date of the run.
+    pub as_of: String,
+    /// Headline figures as printed.
+    pub headline: ReleaseLine,
+    /// Exact counts: person tokens counted.
+    pub counts: Vec<Vec<u64>>,
+    /// Sums: (person token, value key) pairs.
+    pub sums: Vec<Vec<(u64, u64)>>,
+}
+
+#[derive(Debug, Default, Serialize, Deserialize)]
+struct LedgerFile {
+    format: u32,
+    releases: Vec<ReleaseRecord>,
+}
+
+/// The state folder used when none is given: `<out>.ledger` beside the output folder.
+pub fn default_dir(out_dir: &Path) -> PathBuf {
+    let name = out_dir
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "reports".into());
+    out_dir.with_file_name(format!("{name}.ledger"))
+}
+
+fn io_err(path: &Path, e: impl std::fmt::Display) -> std::io::Error {
+    std::io::Error::other(format!("{}: {e}", path.display()))
+}
+
+/// An opened ledger (the folder exists and has a key).
+#[derive(Debug)]
+pub struct Ledger {
+    dir: PathBuf,
+    secret: [u8; 32],
+    releases: Vec<ReleaseRecord>,
+}
+
+impl Ledger {
+    /// Opens (creating if needed) the ledger in `dir`.
+    pub fn open(dir: &Path) -> std::io::Result<Ledger> {
+        std::fs::create_dir_all(dir).map_err(|e| io_err(dir, e))?;
+        let key_path = dir.join(KEY_FILE);
+        let secret = match std::fs::read(&key_path) {
+            Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
+            Ok(_) => return Err(io_err(&key_path, "not a 32-byte key")),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                let key = fresh_key();
+                write_atomic(&key_path, &key)?;
+                key
+            }
+            Err(e) => return Err(io_err(&key_path, e)),
+        };
+        let ledger_path = dir.join(LEDGER_FILE);
+        let releases = match std::fs::read(&ledger_path) {
+            Ok(bytes) => {
+                let f: LedgerFile =
+                    serde_json::from_slice(&bytes).map_err(|e| io_err(&ledger_path, e))?;
+                if f.format != FORMAT {
+                    return Err(io_err(
+                        &ledger_path,
+                        format!("format {} (expected {FORMAT})", f.format),
+                    ));
+                }
+                f.releases
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => Vec::new(),
+            Err(e) => return Err(io_err(&ledger_path, e)),
+        };
+        Ok(Ledger {
+            dir: dir.to_path_buf(),
+            secret,
+            releases,
+        })
+    }
+
+    /// What earlier releases of `program` published, for the audit.
+    pub fn history(&self, program: &str) -> History {
+        let mut h = History {
+            secret: Some(self.secret),
+            ..Default::default()
+        };
+        for r in self.releases.iter().filter(|r| r.program == program) {
+            h.counts.extend(r.counts.iter().cloned());
+            h.sums.extend(r.sums.iter().cloned());
+        }
+        h
+    }
+
+    /// Headline lines of earlier periods of `program` (the latest issue of each period ending
+    /// before `period_to`), oldest first.
+    pub fn earlier_headlines(&self, program: &str, period_to: &str) -> Vec<ReleaseLine> {
+        let mut by_period: std::collections::BTreeMap<(String, String), ReleaseLine> =
+            Default::default();
+        for r in self
+            .releases
+            .iter()
+            .filter(|r| r.program == program && r.period_to.as_str() < period_to)
+        {
+            by_period.insert(
+                (r.period_to.clone(), r.period_from.clone()),
+                r.headline.clone(),
+            );
+        }
+        by_period.into_values().collect()
+    }
+
+    /// Records a release (once: an identical release is not added again) and saves.
+    pub fn record(&mut self, release: ReleaseRecord) -> std::io::Result<()> {
+        if self.releases.contains(&release) {
+            return Ok(());
+        }
+        self.releases.push(release);
+        let f = LedgerFile {
+            format: FORMAT,
+            releases: std::mem::take(&mut self.releases),
+        };
+        let bytes = serde_json::to_vec(&f).map_err(|e| io_err(&self.dir, e))?;
+        self.releases = f.releases;
+        write_atomic(&self.dir.join(LEDGER_FILE), &bytes)
+    }
+}
+
+/// The ledger entry of a release.
+pub fn release_record(
+    program: &str,
+    period_from: &str,
+    period_to: &str,
+    as_of: &str,
+    headline: ReleaseLine,
+    published: Published,
+) -> ReleaseRecord {
+    ReleaseRecord {
+        program: program.into(),
+        period_from: period_from.into(),
+        period_to: period_to.into(),
+        as_of: as_of.into(),
+        headline,
+        counts: published.counts,
+        sums: published.sums,
+    }
+}
+
+fn fresh_key() -> [u8; 32] {
+    let mut key = [0u8; 32];
+    let from_os = std::fs::File::open("/dev/urandom").and_then(|mut f| f.read_exact(&mut key));
+    if from_os.is_err() {
+        // No OS random source: a hash of the time and process, still never stored elsewhere.
+        let mut h = blake3::Hasher::new();
+        h.update(format!("{:?}", std::time::SystemTime::now()).as_bytes());
+        h.update(&std::process::id().to_le_bytes());
+        key = *h.finalize().as_bytes();
+    }
+    key
+}
+
+fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    let tmp = path.with_extension("tmp");
+    {
+        let mut f = std::fs::File::create(&tmp).map_err(|e| io_err(&tmp, e))?;
+        f.write_all(bytes).map_err(|e| io_err(&tmp, e))?;
+        f.sync_all().map_err(|e| io_err(&tmp, e))?;
+    }
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        std::fs::set_permissions(&tmp, std::fs::Permissions::from_mode(0o600))
+            .map_err(|e| io_err(&tmp, e))?;
+    }
+    std::fs::rename(&tmp, path).map_err(|e| io_err(path, e))
+}
