@@ -293,7 +293,11 @@ fn itt_variants_reveal_nothing_about_the_people_without_a_recent_weigh_in() {
     let month = cohort(30, &["Kiln Row"], &[2, 7, 11], 1);
     let min = 5;
     assert!(
-        !attack(&unprotected(std::slice::from_ref(&month), min), min as usize).is_empty(),
+        !attack(
+            &unprotected(std::slice::from_ref(&month), min),
+            min as usize
+        )
+        .is_empty(),
         "the unprotected report leaks (the attack is real)"
     );
     let rel = publish_in_order(&[month], min);
@@ -314,7 +318,13 @@ fn completers_and_itt_and_splits_against_the_whole_reveal_nothing() {
     // line and ITT line, and the whole program minus the other site, are all candidates.
     let month = cohort(18, &["Kiln Row", "Harbour Yard"], &[1, 3, 4], 2);
     let min = 5;
-    assert!(!attack(&unprotected(std::slice::from_ref(&month), min), min as usize).is_empty());
+    assert!(
+        !attack(
+            &unprotected(std::slice::from_ref(&month), min),
+            min as usize
+        )
+        .is_empty()
+    );
     let rel = publish_in_order(&[month], min);
     assert_eq!(attack(&rel, min as usize), Vec::<Vec<String>>::new());
 }
@@ -392,7 +402,12 @@ fn random_small_programs_leak_no_small_total() {
             p.row.weekly_change_percent = (0..weeks).map(|w| (w, -next() * 3.0)).collect();
         }
         let min = 4 + (seed % 2) as u32;
-        if !attack(&unprotected(std::slice::from_ref(&month), min), min as usize).is_empty() {
+        if !attack(
+            &unprotected(std::slice::from_ref(&month), min),
+            min as usize,
+        )
+        .is_empty()
+        {
             leaky_unprotected += 1;
         }
         let rel = publish_in_order(&[month], min);
@@ -402,7 +417,10 @@ fn random_small_programs_leak_no_small_total() {
             "seed {seed}"
         );
     }
-    assert!(leaky_unprotected > 12, "the generator makes attackable programs");
+    assert!(
+        leaky_unprotected > 12,
+        "the generator makes attackable programs"
+    );
 }
 
 #[test]

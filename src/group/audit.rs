@@ -207,10 +207,7 @@ fn binomial(n: usize, k: usize) -> u64 {
 /// Small-support vectors of the row space of one component, smallest first: `(people,
 /// vector over classes)`. `Err(v)` when the work cap was hit (v: the smallest basis vector of
 /// `K`, to be treated as a leak).
-fn small_vectors(
-    cl: &Classes,
-    min: usize,
-) -> Result<Vec<(usize, Vec<i128>)>, Option<Vec<i128>>> {
+fn small_vectors(cl: &Classes, min: usize) -> Result<Vec<(usize, Vec<i128>)>, Option<Vec<i128>>> {
     let ncls = cl.people.len();
     let small: Vec<bool> = cl.people.iter().map(|p| p.len() < min).collect();
     if !small.iter().any(|&s| s) {
@@ -247,9 +244,7 @@ fn small_vectors(
     if d == 0 {
         return Ok(Vec::new());
     }
-    let supp: Vec<usize> = (0..ncls)
-        .filter(|&c| k.iter().any(|v| v[c] != 0))
-        .collect();
+    let supp: Vec<usize> = (0..ncls).filter(|&c| k.iter().any(|v| v[c] != 0)).collect();
     if binomial(supp.len(), d - 1) > WORK_CAP {
         let smallest = k.iter().min_by_key(|v| weight(v, &cl.people)).cloned();
         return Err(smallest);
@@ -416,8 +411,7 @@ pub fn protect(facts: &[SumFact], person_of: &dyn Fn(u64) -> u64, min: usize) ->
                 .filter(|&i| active[i] && facts[i].removable)
                 .min_by_key(|&i| (facts[i].priority, i))
         };
-        let chosen = pick(&mut leak.facts.iter().copied())
-            .or_else(|| pick(&mut (0..facts.len())));
+        let chosen = pick(&mut leak.facts.iter().copied()).or_else(|| pick(&mut (0..facts.len())));
         match chosen {
             Some(i) => active[i] = false,
             None => break,
@@ -514,6 +508,9 @@ mod tests {
         let a: Vec<u64> = (0..40).collect();
         let b: Vec<u64> = (12..40).collect();
         let facts = vec![fact(&a), fact(&b)];
-        assert_eq!(find_leak(&facts, &[true; 2], &person, 11).unwrap().people, 6);
+        assert_eq!(
+            find_leak(&facts, &[true; 2], &person, 11).unwrap().people,
+            6
+        );
     }
 }

@@ -30,9 +30,9 @@ mod tests;
 
 pub use shown::{Interval, Shown};
 pub use summary::{
-    Adherence, AdherenceLine, AuditNote, ChangeLine, ChangeStats, Enrolment, GroupReport, Histogram,
-    HistogramBin, Methods, Milestone, Plateau, ReleaseLine, Section, SectionKind, SectionStats, Split,
-    WeekPoint, WeightChange, summarize, summarize_release,
+    Adherence, AdherenceLine, AuditNote, ChangeLine, ChangeStats, Enrolment, GroupReport,
+    Histogram, HistogramBin, Methods, Milestone, Plateau, ReleaseLine, Section, SectionKind,
+    SectionStats, Split, WeekPoint, WeightChange, summarize, summarize_release,
 };
 
 /// One participant as the group step sees them: group attributes and derived figures only,

@@ -29,10 +29,10 @@ use std::collections::{BTreeMap, BTreeSet, HashMap};
 
 use serde::Serialize;
 
+use super::audit;
 use super::shown::{Interval, Shown};
 use super::stats;
 use super::suppress::{CellId, CellTable};
-use super::audit;
 use super::{GroupOptions, History, ParticipantSummary, Published};
 
 /// Loss thresholds (% of baseline weight) of the milestone lines (REFERENCE §8.3).
@@ -611,7 +611,10 @@ fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>, index: &RowI
             Kind::Week(w),
             raw.weeks.get(&w).map_or(0, |v| v.len() as u64),
         );
-        members.insert(Kind::Week(w), raw.week_idx.get(&w).cloned().unwrap_or_default());
+        members.insert(
+            Kind::Week(w),
+            raw.week_idx.get(&w).cloned().unwrap_or_default(),
+        );
     }
     raw.counts = counts;
     raw.members = members;
@@ -1004,7 +1007,11 @@ pub(super) fn build(
                 owners.push((d as *const Draft, line, d.label.clone(), atoms));
             }
         }
-        let keep = audit::protect(&facts, &|a| person_of.get(&a).copied().unwrap_or(a), min as usize);
+        let keep = audit::protect(
+            &facts,
+            &|a| person_of.get(&a).copied().unwrap_or(a),
+            min as usize,
+        );
         let first_new = history.sums.len();
         for (j, (d, line, label, atoms)) in owners.into_iter().enumerate() {
             if keep[first_new + j] {
@@ -1190,11 +1197,7 @@ fn section_stats(
     let share = |x: Kind, n: Kind| {
         let (xv, nv) = (raw.count(x), raw.count(n));
         let bounds = |k: Kind, v: u64| {
-            if hidden(k) {
-                range(k)
-            } else {
-                Some((v, v))
-            }
+            if hidden(k) { range(k) } else { Some((v, v)) }
         };
         if nv > 0 && (hidden(x) || hidden(n)) {
             let pct = match (bounds(x, xv), bounds(n, nv)) {

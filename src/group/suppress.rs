@@ -177,52 +177,103 @@ impl CellTable {
         if hidden.is_empty() {
             return out;
         }
-        let solve = |target: CellId, dir: OptimizationDirection| -> Option<f64> {
-            let mut p = Problem::new(dir);
-            let mut var = std::collections::HashMap::new();
-            for &c in &hidden {
-                let bounds = if self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
-                    (1.0, f64::from(min_cell_size) - 1.0)
-                } else {
-                    (0.0, f64::INFINITY)
-                };
-                let coef = if c == target { 1.0 } else { 0.0 };
-                var.insert(c, p.add_var(coef, bounds));
+        // Each group of hidden cells linked by relations is its own small program.
+        let rels_of = self.relations_of();
+        let mut done = vec![false; self.cells.len()];
+        for &start in &hidden {
+            if done[start] {
+                continue;
             }
-            for r in &self.relations {
-                // total − Σ parts = 0, shown cells moved to the right-hand side.
-                let mut terms: Vec<(microlp::Variable, f64)> = Vec::new();
-                let mut rhs = 0.0;
-                for (m, sign) in std::iter::once((r.total, 1.0))
-                    .chain(r.parts.iter().map(|&p| (p, -1.0)))
-                {
-                    match var.get(&m) {
-                        Some(&v) => terms.push((v, sign)),
-                        None => rhs -= sign * self.cells[m].value as f64,
+            let comp = self.hidden_component_with(start, &rels_of);
+            for &c in &comp {
+                done[c] = true;
+            }
+            let mut rels: Vec<usize> = comp
+                .iter()
+                .flat_map(|&c| rels_of[c].iter().copied())
+                .collect();
+            rels.sort_unstable();
+            rels.dedup();
+            let solve = |target: CellId, dir: OptimizationDirection| -> Option<f64> {
+                let mut p = Problem::new(dir);
+                let mut var = std::collections::HashMap::new();
+                for &c in &comp {
+                    let bounds = if self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
+                        (1.0, f64::from(min_cell_size) - 1.0)
+                    } else {
+                        (0.0, f64::INFINITY)
+                    };
+                    let coef = if c == target { 1.0 } else { 0.0 };
+                    var.insert(c, p.add_var(coef, bounds));
+                }
+                for &r in &rels {
+                    let r = &self.relations[r];
+                    // total − Σ parts = 0, shown cells moved to the right-hand side.
+                    let mut terms: Vec<(microlp::Variable, f64)> = Vec::new();
+                    let mut rhs = 0.0;
+                    for (m, sign) in
+                        std::iter::once((r.total, 1.0)).chain(r.parts.iter().map(|&p| (p, -1.0)))
+                    {
+                        match var.get(&m) {
+                            Some(&v) => terms.push((v, sign)),
+                            None => rhs -= sign * self.cells[m].value as f64,
+                        }
+                    }
+                    if !terms.is_empty() {
+                        p.add_constraint(terms.as_slice(), ComparisonOp::Eq, rhs);
                     }
                 }
-                if !terms.is_empty() {
-                    p.add_constraint(terms.as_slice(), ComparisonOp::Eq, rhs);
+                match p.solve().ok()? {
+                    SolveOutcome::Solution(s) => Some(s.objective()),
+                    _ => None,
+                }
+            };
+            for &c in &comp {
+                let lo = solve(c, OptimizationDirection::Minimize);
+                let hi = solve(c, OptimizationDirection::Maximize);
+                // A cell no relation bounds (unbounded program) gets no range.
+                if let (Some(lo), Some(hi)) = (lo, hi)
+                    && lo.is_finite()
+                    && hi.is_finite()
+                {
+                    // Whole numbers inside the LP range contain every whole-number solution
+                    // (1e-6 absorbs the solver's feasibility tolerance).
+                    let lo = (lo - 1e-6).ceil().max(0.0) as u64;
+                    let hi = (hi + 1e-6).floor().max(0.0) as u64;
+                    out[c] = Some((lo.min(hi), hi));
                 }
             }
-            match p.solve().ok()? {
-                SolveOutcome::Solution(s) => Some(s.objective()),
-                _ => None,
+        }
+        out
+    }
+
+    /// For each cell, the relations it is a member of.
+    fn relations_of(&self) -> Vec<Vec<usize>> {
+        let mut out = vec![Vec::new(); self.cells.len()];
+        for (i, r) in self.relations.iter().enumerate() {
+            for m in r.members() {
+                if out[m].last() != Some(&i) {
+                    out[m].push(i);
+                }
             }
-        };
-        for &c in &hidden {
-            let lo = solve(c, OptimizationDirection::Minimize);
-            let hi = solve(c, OptimizationDirection::Maximize);
-            // A cell no relation bounds (unbounded program) gets no range.
-            if let (Some(lo), Some(hi)) = (lo, hi)
-                && lo.is_finite()
-                && hi.is_finite()
-            {
-                // Whole numbers inside the LP range contain every whole-number solution
-                // (1e-6 absorbs the solver's feasibility tolerance).
-                let lo = (lo - 1e-6).ceil().max(0.0) as u64;
-                let hi = (hi + 1e-6).floor().max(0.0) as u64;
-                out[c] = Some((lo.min(hi), hi));
+        }
+        out
+    }
+
+    fn hidden_component_with(&self, u: CellId, rels_of: &[Vec<usize>]) -> Vec<CellId> {
+        let mut seen = vec![false; self.cells.len()];
+        seen[u] = true;
+        let mut stack = vec![u];
+        let mut out = vec![u];
+        while let Some(c) = stack.pop() {
+            for &r in &rels_of[c] {
+                for m in self.relations[r].members() {
+                    if self.cells[m].suppressed && !seen[m] {
+                        seen[m] = true;
+                        stack.push(m);
+                        out.push(m);
+                    }
+                }
             }
         }
         out
@@ -260,22 +311,7 @@ impl CellTable {
 
     /// The hidden cells linked to `u` through relations and other hidden cells (with `u`).
     fn hidden_component(&self, u: CellId) -> Vec<CellId> {
-        let mut seen = vec![false; self.cells.len()];
-        seen[u] = true;
-        let mut stack = vec![u];
-        let mut out = vec![u];
-        while let Some(c) = stack.pop() {
-            for r in self.relations.iter().filter(|r| r.members().any(|m| m == c)) {
-                for m in r.members() {
-                    if self.cells[m].suppressed && !seen[m] {
-                        seen[m] = true;
-                        stack.push(m);
-                        out.push(m);
-                    }
-                }
-            }
-        }
-        out
+        self.hidden_component_with(u, &self.relations_of())
     }
 
     /// Step 2: every relation with exactly one hidden member gets a complement.

@@ -476,25 +476,25 @@ fn fill(
             table: hist_table,
         });
     } else {
-    charts.push((
-        hist_name.clone(),
-        Chart::Bars(BarChart {
-            title: "Distribution of weight change".into(),
-            y_label: "participants".into(),
-            bars,
-            target: None,
-            alt_text: hist_alt.clone(),
-        }),
-    ));
-    view.charts.push(NamedChartView {
-        name: hist_name.clone(),
-        view: ChartView {
-            title: "Distribution of weight change".into(),
-            alt: hist_alt,
-            table: hist_table,
-        },
-    });
-    view.chart_names.push(hist_name);
+        charts.push((
+            hist_name.clone(),
+            Chart::Bars(BarChart {
+                title: "Distribution of weight change".into(),
+                y_label: "participants".into(),
+                bars,
+                target: None,
+                alt_text: hist_alt.clone(),
+            }),
+        ));
+        view.charts.push(NamedChartView {
+            name: hist_name.clone(),
+            view: ChartView {
+                title: "Distribution of weight change".into(),
+                alt: hist_alt,
+                table: hist_table,
+            },
+        });
+        view.chart_names.push(hist_name);
     }
 
     // Mean trajectory by week since enrolment (weeks with a shown mean only).
