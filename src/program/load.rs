@@ -9,7 +9,6 @@ use crate::diag::Diagnostic;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{ProgramInfo, Targets};
 use std::collections::{BTreeMap, BTreeSet};
-use std::io::Read;
 use std::path::Path;
 
 /// The program file's name, relative to the program folder (as diagnostics show it).
@@ -238,12 +237,10 @@ pub fn is_plain_id(s: &str) -> bool {
             .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
 }
 
-/// Reads a whole file without ever opening it for writing.
+/// Reads a whole input file without ever opening it for writing, without following a link and
+/// only when it is a regular file within its size limit ([`crate::limits::read_input`]).
 pub fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
-    let mut f = std::fs::OpenOptions::new().read(true).open(path)?;
-    let mut buf = Vec::new();
-    f.read_to_end(&mut buf)?;
-    Ok(buf)
+    crate::limits::read_input(path)
 }
 
 /// Decodes UTF-8 (a leading byte-order mark is skipped); on failure the diagnostic names the
