@@ -259,10 +259,15 @@ pub fn load_participant(
             listing = Some(typed);
         }
         names.sort();
+        let mut stray = 0usize;
         for n in names {
             let lower = n.to_lowercase();
             let input_like = [".csv", ".yaml", ".yml"].iter().any(|x| lower.ends_with(x));
             if input_like && !n.starts_with('.') && !KNOWN_FILES.contains(&n.as_str()) {
+                stray += 1;
+                if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
+                    continue;
+                }
                 let hint = if lower == "profile.yml" || lower == "profile.yaml" {
                     "rename it to `profile.yaml` (lowercase, .yaml)".to_string()
                 } else {
@@ -279,6 +284,16 @@ pub fn load_participant(
                         .hint(hint),
                 );
             }
+        }
+        if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
+            diags.push(
+                FileCtx::new(id, format!("{PARTICIPANTS_DIR}/{id}"))
+                    .warning(format!(
+                        "… and {} more files that are not input files the tool reads; they are ignored",
+                        crate::diag::thousands(stray - crate::limits::MAX_DIAGNOSTICS_PER_KIND)
+                    ))
+                    .hint(format!("the files read are {}", KNOWN_FILES.join(", "))),
+            );
         }
     }
 
@@ -316,7 +331,8 @@ pub fn load_participant(
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
             let ctx = FileCtx::new(id, rel($spec.name));
-            match read_input(
+            let first_diag = diags.len();
+            let rows = match read_input(
                 dir,
                 $spec.name,
                 listing.as_deref(),
@@ -329,7 +345,9 @@ pub fn load_participant(
                 Some(Ok(text)) => {
                     $parse(&text, &opts, &ctx, &window, &mut diags).unwrap_or_default()
                 }
-            }
+            };
+            crate::diag::cap_per_kind(&mut diags, first_diag);
+            rows
         }};
     }
     let weights = csv_file!(records::WEIGHTS, records::parse_weights);
