@@ -913,3 +913,103 @@ fn an_invalid_answer_with_processes_left_behind_is_a_validation_failure_not_a_ti
     assert_eq!(pids.len(), 9);
     assert_none_survive(&pids);
 }
+
+/// Every cell of every CSV file under `dir`, by file name.
+fn csv_cells(dir: &Path) -> BTreeMap<String, Vec<String>> {
+    let mut files = BTreeMap::new();
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().is_some_and(|x| x == "csv") {
+            let mut reader = csv::ReaderBuilder::new()
+                .has_headers(false)
+                .flexible(true)
+                .from_path(&path)
+                .unwrap();
+            let cells = reader
+                .records()
+                .flat_map(|r| r.unwrap().iter().map(String::from).collect::<Vec<_>>())
+                .collect();
+            files.insert(
+                path.file_name().unwrap().to_string_lossy().into_owned(),
+                cells,
+            );
+        }
+    }
+    files
+}
+
+#[test]
+fn binary_escapes_formula_like_text_in_every_csv_and_keeps_numbers() {
+    let t = fixture_with_example();
+    std::fs::copy(
+        fixture("fake-plugins/fake.py"),
+        t.dir.join("plugins/fake.py"),
+    )
+    .unwrap();
+    std::fs::write(
+        t.dir.join("program.yaml"),
+        "format_version: 1\n\
+         program: {id: ext-fixture, title: Fixture, start: 2027-03-01, end: 2027-05-31}\n\
+         modules:\n  \
+           - id: txt\n    command: [plugins/fake.py, txt, formula]\n",
+    )
+    .unwrap();
+    let profile = t.dir.join("participants/XP-01/profile.yaml");
+    let text = std::fs::read_to_string(&profile).unwrap().replace(
+        "groups: { site: East Yard }",
+        "groups: { site: '=HYPERLINK(\"http://x\",\"y\")' }",
+    );
+    std::fs::write(&profile, text).unwrap();
+    // An extra column named like a formula: named in the data-quality list.
+    let weights = t.dir.join("participants/XP-02/weights.csv");
+    let text: String = std::fs::read_to_string(&weights)
+        .unwrap()
+        .lines()
+        .enumerate()
+        .map(|(i, l)| format!("{l},{}\n", if i == 0 { "@cmd" } else { "" }))
+        .collect();
+    std::fs::write(&weights, text).unwrap();
+
+    let out = t.run(&MARCH);
+    assert!(
+        out.code == cohortpress::exit_code::SUCCESS || out.code == cohortpress::exit_code::WARNINGS,
+        "{}",
+        out.stderr
+    );
+    let rows = participants_csv(&t);
+    assert_eq!(
+        rows["XP-01"]["group_site"],
+        "'=HYPERLINK(\"http://x\",\"y\")"
+    );
+    assert_eq!(rows["XP-02"]["group_site"], "West Yard");
+    assert_eq!(rows["XP-01"]["txt.note"], "'+cmd");
+    assert_eq!(rows["XP-01"]["txt.change_kg"], "-3.2");
+
+    let files = csv_cells(&t.dir.join("reports/metrics"));
+    let has = |file: &str, cell: &str| files[file].iter().any(|c| c == cell);
+    assert!(
+        has("tables.csv", "'@SUM(A1:A2)"),
+        "{:?}",
+        files["tables.csv"]
+    );
+    assert!(has("tables.csv", "'-2+3"), "{:?}", files["tables.csv"]);
+    assert!(has("tables.csv", "-3.2"), "{:?}", files["tables.csv"]);
+    assert!(has("weekly.csv", "'@kg"), "{:?}", files["weekly.csv"]);
+    assert!(has("weekly.csv", "-3.2"), "{:?}", files["weekly.csv"]);
+    assert!(
+        has("data-quality.csv", "'@cmd"),
+        "{:?}",
+        files["data-quality.csv"]
+    );
+    // No cell of any CSV begins like a formula, except plain numbers.
+    assert_eq!(files.len(), 4, "{:?}", files.keys());
+    for (file, cells) in &files {
+        for c in cells {
+            let number = c.parse::<f64>().is_ok_and(f64::is_finite);
+            assert!(
+                number || !c.starts_with(['=', '+', '-', '@', '\t', '\r']),
+                "{file}: `{c}`"
+            );
+        }
+    }
+}
