@@ -205,7 +205,7 @@ impl Launch {
             }
             Err(e) => return Err(CallError::Failed(format!("cannot start `{shown}`: {e}"))),
         };
-        let mut running = Running::new(child);
+        let mut running = Running::new(child, workdir.path());
         let (tx, rx) = mpsc::channel();
 
         // Standard input is written from its own thread: a module that never reads must not be
@@ -379,8 +379,66 @@ struct Running {
     status: Option<ExitStatus>,
 }
 
+/// Process groups of the modules running right now, with their working folders, so that an
+/// interrupted run can stop them and clean up. A group leaves the map before its leader is
+/// reaped, so an id in it is never a reused one.
+#[cfg(unix)]
+static LIVE_GROUPS: std::sync::Mutex<std::collections::BTreeMap<u32, PathBuf>> =
+    std::sync::Mutex::new(std::collections::BTreeMap::new());
+
+#[cfg(unix)]
+fn live_groups() -> std::sync::MutexGuard<'static, std::collections::BTreeMap<u32, PathBuf>> {
+    // A panic while holding the lock leaves the set itself consistent.
+    LIVE_GROUPS.lock().unwrap_or_else(|e| e.into_inner())
+}
+
+/// On the first call, starts a thread that waits for SIGINT or SIGTERM; when one arrives it kills
+/// the process groups of the modules running then, removes their working folders, and ends the
+/// process as the signal would have.
+/// Modules lead groups of their own, so a Ctrl-C at the terminal or a scheduler stopping the job
+/// reaches only cohortpress; without this their processes would outlive the run.
+#[cfg(unix)]
+fn stop_modules_on_interrupt() {
+    static INSTALL: std::sync::Once = std::sync::Once::new();
+    INSTALL.call_once(|| {
+        use signal_hook::consts::{SIGINT, SIGTERM};
+        let mut signals = match signal_hook::iterator::Signals::new([SIGINT, SIGTERM]) {
+            Ok(s) => s,
+            Err(e) => {
+                tracing::warn!(
+                    "cannot watch for interrupts ({e}); an interrupted run may leave external \
+                     modules running"
+                );
+                return;
+            }
+        };
+        std::thread::spawn(move || {
+            if let Some(signal) = signals.forever().next() {
+                let groups = live_groups();
+                for (&pgid, dir) in groups.iter() {
+                    if let Some(pid) = rustix::process::Pid::from_raw(pgid as i32) {
+                        let _ =
+                            rustix::process::kill_process_group(pid, rustix::process::Signal::KILL);
+                    }
+                    let _ = std::fs::remove_dir_all(dir);
+                }
+                // Keep the lock: no new group is registered while the process ends.
+                let _ = signal_hook::low_level::emulate_default_handler(signal);
+                std::process::exit(128 + signal);
+            }
+        });
+    });
+}
+
 impl Running {
-    fn new(child: Child) -> Self {
+    fn new(child: Child, workdir: &Path) -> Self {
+        #[cfg(unix)]
+        {
+            stop_modules_on_interrupt();
+            live_groups().insert(child.id(), workdir.to_path_buf());
+        }
+        #[cfg(not(unix))]
+        let _ = workdir;
         Running {
             child,
             status: None,
@@ -443,6 +501,8 @@ impl Running {
             return Ok(s);
         }
         self.kill_group();
+        #[cfg(unix)]
+        live_groups().remove(&self.child.id());
         let s = self.child.wait()?;
         self.status = Some(s);
         Ok(s)

@@ -1013,3 +1013,49 @@ fn binary_escapes_formula_like_text_in_every_csv_and_keeps_numbers() {
         }
     }
 }
+
+#[cfg(target_os = "linux")]
+#[test]
+fn binary_interrupted_by_sigterm_stops_the_running_modules() {
+    use std::os::unix::process::ExitStatusExt;
+    // XP-02's call hangs (30 s) well inside its timeout; the run is stopped while it does.
+    let (t, pid_file) = lingering_program("sleep", Some("XP-02"), 600.0);
+    let args: Vec<String> = MARCH
+        .iter()
+        .map(|a| a.replace("{dir}", &t.dir.to_string_lossy()))
+        .collect();
+    let mut run = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+        .args(&args)
+        .current_dir(&t.dir)
+        .env_clear()
+        .env("PATH", std::env::var("PATH").unwrap_or_default())
+        .env("HOME", t.dir.parent().unwrap())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    // Wait until the handshake and both computations have started (each records three pids).
+    let mut calls = Vec::new();
+    for _ in 0..3000 {
+        calls = std::fs::read_to_string(&pid_file)
+            .map(|_| lingered(&pid_file))
+            .unwrap_or_default();
+        if calls.len() == 3 && calls.iter().all(|c| c.pids.len() == 3) {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    assert_eq!(calls.len(), 3, "{calls:?}");
+    let status = std::process::Command::new("kill")
+        .args(["-TERM", &run.id().to_string()])
+        .status()
+        .unwrap();
+    assert!(status.success());
+    let ended = run.wait().unwrap();
+    assert_eq!(ended.signal(), Some(15), "{ended:?}");
+    let pids: Vec<u32> = calls.iter().flat_map(|c| c.pids.iter().copied()).collect();
+    assert_none_survive(&pids);
+    for c in &calls {
+        assert!(!c.cwd.exists(), "{c:?}");
+    }
+}
