@@ -9,9 +9,15 @@
 //! much — becomes a [`CallError`] with a message an administrator can act on. It never panics
 //! and never blocks the run for longer than the module's timeout.
 //!
-//! What the module gets is kept to what it needs: a minimal environment (`PATH`, `HOME`, `LANG`),
-//! the participant's data without the display name, and only the earlier outputs of the modules
-//! its spec `requires`.
+//! What the module gets is kept to what it needs: a minimal environment (`PATH`, `HOME`, `LANG`,
+//! and `TMPDIR` pointing at its own fresh empty working folder), the participant's data without
+//! the display name, and only the earlier outputs of the modules its spec `requires`. It is
+//! trusted code all the same: it runs as the user and can read what the user can.
+//!
+//! Each call is a process group of its own. The group is killed when the module exits (its
+//! answer is then already in the pipe, so leftover processes holding the pipe cannot delay or
+//! void it), at the timeout, on every other way out of a call, and when the run is interrupted
+//! by SIGINT or SIGTERM; nothing a module starts in its group outlives the call.
 
 use cohortpress_metric_api::protocol::{HostMessage, ModuleMessage, parse_version};
 use cohortpress_metric_api::{
