@@ -241,9 +241,17 @@ fn links_fifos_and_directories_are_refused_naming_the_file() {
         .collect();
     assert_eq!(errors.len(), 3, "{errors:#?}");
     assert_eq!(errors[0].0, "participants/P1/activity.csv");
-    assert!(errors[0].1.contains("a FIFO (named pipe), not a regular file"), "{errors:?}");
+    assert!(
+        errors[0]
+            .1
+            .contains("a FIFO (named pipe), not a regular file"),
+        "{errors:?}"
+    );
     assert_eq!(errors[1].0, "participants/P1/intake.csv");
-    assert!(errors[1].1.contains("a folder, not a regular file"), "{errors:?}");
+    assert!(
+        errors[1].1.contains("a folder, not a regular file"),
+        "{errors:?}"
+    );
     assert_eq!(errors[2].0, "participants/P1/weights.csv");
     assert!(errors[2].1.contains("symbolic link"), "{errors:?}");
     assert!(loaded.data.is_none());
