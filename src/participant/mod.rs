@@ -235,6 +235,33 @@ pub fn load_participant(
     let mut files = Vec::new();
     let opts = csv_options(program);
 
+    // Checked again here (not only when the folders were listed): a folder replaced by a link
+    // since then is still not followed.
+    match std::fs::symlink_metadata(&dir.path) {
+        Ok(m) if m.is_dir() => {}
+        other => {
+            let what = match other {
+                Ok(m) => crate::limits::kind_of(&m.file_type()).to_string(),
+                Err(e) => format!("unreadable ({e})"),
+            };
+            diags.push(
+                Diagnostic::error(
+                    format!("{PARTICIPANTS_DIR}/{id}"),
+                    "the participant folder is no longer a real folder; this participant is not reported",
+                )
+                .participant(id)
+                .expected("a real folder holding the participant's files")
+                .found(what),
+            );
+            return LoadedParticipant {
+                id: dir.id.clone(),
+                data: None,
+                diagnostics: diags,
+                files,
+            };
+        }
+    }
+
     // The folder's entries: files the tool does not read but that look like inputs are most
     // likely a misspelt name; the listing also tells `read_input` which input files exist. It
     // is only trusted when every entry could be read with its type.
