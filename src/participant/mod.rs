@@ -141,7 +141,27 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         }
     }
     dirs.sort();
+    if dirs.is_empty() && diags.is_empty() {
+        // An empty folder is what an unmounted network share looks like: reporting on nobody
+        // would replace last month's reports with empty ones.
+        diags.push(
+            Diagnostic::error(
+                PARTICIPANTS_DIR,
+                "the participants folder holds no participant folders",
+            )
+            .expected("one folder per participant, each with its profile.yaml")
+            .hint("if the folder lives on a network share, check that the share is mounted"),
+        );
+    }
     (dirs, diags)
+}
+
+/// Whether a discovery diagnostic concerns the participants folder as a whole (missing,
+/// unreadable or empty): then nothing can be reported, and `check` and `run` both exit 3.
+pub fn is_folder_error(d: &Diagnostic) -> bool {
+    d.severity == crate::diag::Severity::Error
+        && d.participant.is_none()
+        && d.file == PARTICIPANTS_DIR
 }
 
 /// Shows control characters in a name as escapes so a message cannot be garbled by them.
