@@ -167,9 +167,8 @@ impl fmt::Display for Diagnostic {
 /// bidirectional-override character shown as an escape (`\u{1b}`, `\n`), for text printed to a
 /// terminal or a log. Text without them is borrowed unchanged.
 pub fn printable(s: &str) -> std::borrow::Cow<'_, str> {
-    let hidden = |c: char| {
-        c.is_control() || matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}')
-    };
+    let hidden =
+        |c: char| c.is_control() || matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}');
     if !s.chars().any(hidden) {
         return std::borrow::Cow::Borrowed(s);
     }
@@ -255,7 +254,7 @@ pub fn thousands(n: usize) -> String {
     let s = n.to_string();
     let mut out = String::new();
     for (i, c) in s.chars().enumerate() {
-        if i > 0 && (s.len() - i) % 3 == 0 {
+        if i > 0 && (s.len() - i).is_multiple_of(3) {
             out.push(',');
         }
         out.push(c);
@@ -279,7 +278,10 @@ mod tests {
             "warning: p/a\\u{1b}[2J.csv:3:1: bad `\\u{0}x`\n  found: `\\u{1b}]0;title\\u{7}\\u{9b}\\u{202e}abc\\n`\n  hint: fine"
         );
         assert!(!shown.chars().any(|c| c.is_control() && c != '\n'));
-        assert!(matches!(printable("plain – text"), std::borrow::Cow::Borrowed(_)));
+        assert!(matches!(
+            printable("plain – text"),
+            std::borrow::Cow::Borrowed(_)
+        ));
     }
 
     #[test]
@@ -317,13 +319,19 @@ mod tests {
         assert_eq!(summaries.len(), 2);
         assert_eq!(
             summaries[0].message,
-            format!("… and {} more like this: row has 4 fields", thousands(10_000 - max))
+            format!(
+                "… and {} more like this: row has 4 fields",
+                thousands(10_000 - max)
+            )
         );
         assert_eq!(summaries[0].line, Some(max as u64 + 1));
         assert!(summaries[0].found.is_none());
         assert_eq!(
             summaries[1].message,
-            format!("… and {} more like this: `weight` is empty", thousands(5_000 - max))
+            format!(
+                "… and {} more like this: `weight` is empty",
+                thousands(5_000 - max)
+            )
         );
         // Few diagnostics are left alone.
         let mut few = diags[..5].to_vec();

@@ -73,9 +73,8 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
                     .hint("check indentation (spaces, not tabs) and quote values containing `:` or `#`"));
             }
         };
-        let here = |d: Diagnostic| {
-            d.at(span.start.line() as u64, Some(span.start.col() as u64 + 1))
-        };
+        let here =
+            |d: Diagnostic| d.at(span.start.line() as u64, Some(span.start.col() as u64 + 1));
         events += 1;
         expanded += 1;
         match event {
@@ -387,7 +386,10 @@ mod tests {
             text.push_str(&format!("{next}: &{next} [{refs}]\n"));
         }
         let d = from_str::<Value>(&text, "bomb.yaml").unwrap_err();
-        assert!(d.message.contains("expand the file to more than 200000"), "{d}");
+        assert!(
+            d.message.contains("expand the file to more than 200000"),
+            "{d}"
+        );
         assert!(d.hint.as_deref().unwrap().contains("alias"));
         // Refused where the budget ran out (line 6 alone would expand to 664,000 values).
         assert_eq!(d.line, Some(6), "{d}");

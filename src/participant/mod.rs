@@ -193,14 +193,13 @@ pub fn csv_options(program: &Program) -> CsvOptions {
 /// answers "is there such a file" without a `stat` call per missing file. Whatever is there is
 /// opened without following links and refused unless it is a regular file.
 fn read_input(
-    dir: &ParticipantDir,
+    dir: &crate::limits::InputDir,
     name: &str,
     listing: Option<&[(String, std::fs::FileType)]>,
     ctx: &FileCtx,
     files: &mut Vec<InputFile>,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Result<String, ()>> {
-    let path = dir.path.join(name);
     if let Some(l) = listing
         && !l.iter().any(|(n, _)| n == name)
     {
@@ -208,7 +207,7 @@ fn read_input(
     }
     // Opened without following links, regular files only (crate::limits::open_input), and
     // refused before reading when over the size limit.
-    let bytes = match crate::limits::read_input(&path) {
+    let bytes = match crate::limits::read_input_in(dir, name) {
         Ok(b) => b,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => return None,
         Err(e) => {
@@ -255,23 +254,18 @@ pub fn load_participant(
     let mut files = Vec::new();
     let opts = csv_options(program);
 
-    // Checked again here (not only when the folders were listed): a folder replaced by a link
-    // since then is still not followed.
-    match std::fs::symlink_metadata(&dir.path) {
-        Ok(m) if m.is_dir() => {}
-        other => {
-            let what = match other {
-                Ok(m) => crate::limits::kind_of(&m.file_type()).to_string(),
-                Err(e) => format!("unreadable ({e})"),
-            };
+    // The folder is opened once without following a link, and its files relative to that
+    // handle: a folder replaced by a link since it was listed is not followed either.
+    let handle = match crate::limits::open_dir(&dir.path) {
+        Ok(h) => h,
+        Err(e) => {
             diags.push(
                 Diagnostic::error(
                     format!("{PARTICIPANTS_DIR}/{id}"),
-                    "the participant folder is no longer a real folder; this participant is not reported",
+                    format!("the participant folder cannot be opened ({e}); this participant is not reported"),
                 )
                 .participant(id)
-                .expected("a real folder holding the participant's files")
-                .found(what),
+                .expected("a real folder holding the participant's files"),
             );
             return LoadedParticipant {
                 id: dir.id.clone(),
@@ -280,7 +274,7 @@ pub fn load_participant(
                 files,
             };
         }
-    }
+    };
 
     // The folder's entries: files the tool does not read but that look like inputs are most
     // likely a misspelt name; the listing also tells `read_input` which input files exist. It
@@ -346,7 +340,7 @@ pub fn load_participant(
 
     let pctx = FileCtx::new(id, rel(PROFILE_FILE));
     let profile = match read_input(
-        dir,
+        &handle,
         PROFILE_FILE,
         listing.as_deref(),
         &pctx,
@@ -380,7 +374,7 @@ pub fn load_participant(
             let ctx = FileCtx::new(id, rel($spec.name));
             let first_diag = diags.len();
             let rows = match read_input(
-                dir,
+                &handle,
                 $spec.name,
                 listing.as_deref(),
                 &ctx,

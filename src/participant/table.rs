@@ -806,7 +806,11 @@ mod tests {
         let (t, d) = read(&wide, &opts);
         assert!(t.is_none());
         assert_eq!(d.len(), 1, "{d:?}");
-        assert!(d[0].message.contains("more than the limit of 256"), "{}", d[0]);
+        assert!(
+            d[0].message.contains("more than the limit of 256"),
+            "{}",
+            d[0]
+        );
 
         let mut long = String::from("date,weight,unit\n");
         for _ in 0..=MAX_CSV_ROWS {

@@ -194,7 +194,8 @@ fn yaml_alias_bombs_and_deep_nesting_are_refused() {
     );
     assert!(
         r.stderr.contains("participants/SG-001/profile.yaml:")
-            && r.stderr.contains("aliases (`*name`) expand the file to more than"),
+            && r.stderr
+                .contains("aliases (`*name`) expand the file to more than"),
         "{}",
         r.stderr
     );
@@ -228,7 +229,8 @@ fn yaml_alias_bombs_and_deep_nesting_are_refused() {
         r.stderr
     );
     assert!(
-        r.stderr.contains("aliases (`*name`) expand the file to more than"),
+        r.stderr
+            .contains("aliases (`*name`) expand the file to more than"),
         "{}",
         r.stderr
     );
@@ -403,7 +405,16 @@ fn links_and_special_files_are_never_read() {
     let o = out(&t);
     let r = run_bin(
         &t,
-        &["run", "{dir}", "--as-of", AS_OF, "--out", &o, "--formats", "html"],
+        &[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--out",
+            &o,
+            "--formats",
+            "html",
+        ],
         &[("COHORTPRESS_LEAK_CHECK", &secret)],
         None,
     );
@@ -417,7 +428,10 @@ fn links_and_special_files_are_never_read() {
         ("SG-001/activity.csv", "symbolic link"),
         ("SG-002/weights.csv", "symbolic link"),
         ("SG-003/weights.csv", "symbolic link"),
-        ("SG-005/intake.csv", "a FIFO (named pipe), not a regular file"),
+        (
+            "SG-005/intake.csv",
+            "a FIFO (named pipe), not a regular file",
+        ),
     ] {
         assert!(
             r.stderr
@@ -442,7 +456,10 @@ fn links_and_special_files_are_never_read() {
         .collect();
     assert_eq!(reports, ["SG-004.html"]);
     let scratch = t.dir.parent().unwrap();
-    assert_eq!(files_containing(scratch, secret.as_bytes()), Vec::<String>::new());
+    assert_eq!(
+        files_containing(scratch, secret.as_bytes()),
+        Vec::<String>::new()
+    );
     assert_eq!(files_containing(scratch, b"root:"), Vec::<String>::new());
     // SG-004's own rows appear only in its own file (and nowhere under SG-003's name).
     let hits = files_containing(scratch, other_row.as_bytes());
@@ -467,7 +484,9 @@ fn links_and_special_files_are_never_read() {
     );
     let shown = format!("{}{}", r.stdout, r.stderr);
     assert!(
-        shown.contains("participants/SG-002/weights.csv: cannot read the file (it is a symbolic link"),
+        shown.contains(
+            "participants/SG-002/weights.csv: cannot read the file (it is a symbolic link"
+        ),
         "{shown}"
     );
 }
@@ -502,7 +521,14 @@ fn hostile_files_are_refused_within_a_memory_ceiling_and_the_others_are_reported
     // A million rows (about 19 MB).
     let mut rows = String::from("date,weight,unit\n");
     for i in 0..1_000_000u32 {
-        writeln!(rows, "2026-{:02}-{:02},{}.5,kg", 4 + i % 6, 1 + i % 28, 60 + i % 30).unwrap();
+        writeln!(
+            rows,
+            "2026-{:02}-{:02},{}.5,kg",
+            4 + i % 6,
+            1 + i % 28,
+            60 + i % 30
+        )
+        .unwrap();
     }
     std::fs::write(p("SG-003/weights.csv"), rows).unwrap();
     // A header of 2 million columns.
@@ -515,7 +541,16 @@ fn hostile_files_are_refused_within_a_memory_ceiling_and_the_others_are_reported
     let o = out(&t);
     let r = run_bin(
         &t,
-        &["run", "{dir}", "--as-of", AS_OF, "--out", &o, "--formats", "html"],
+        &[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--out",
+            &o,
+            "--formats",
+            "html",
+        ],
         &[],
         Some(HOSTILE_CEILING_MIB),
     );
@@ -537,13 +572,21 @@ fn hostile_files_are_refused_within_a_memory_ceiling_and_the_others_are_reported
         assert!(r.stderr.contains(expected), "{expected}: {}", r.stderr);
     }
     for id in ["SG-005", "SG-006"] {
-        assert!(Path::new(&o).join(format!("participants/{id}.html")).exists());
+        assert!(
+            Path::new(&o)
+                .join(format!("participants/{id}.html"))
+                .exists()
+        );
     }
     // No output (reports, metrics, cache, log) grew with the hostile files.
     for entry in walkdir::WalkDir::new(&o) {
         let entry = entry.unwrap();
         let len = entry.metadata().unwrap().len();
-        assert!(len < 2 * 1024 * 1024, "{}: {len} bytes", entry.path().display());
+        assert!(
+            len < 2 * 1024 * 1024,
+            "{}: {len} bytes",
+            entry.path().display()
+        );
     }
 }
 
@@ -602,7 +645,10 @@ fn control_characters_and_bad_overrides_are_shown_safely_by_check() {
         )),
         "{shown}"
     );
-    assert!(shown.contains("expected: a number from -50 to 50; found: -846.9"), "{shown}");
+    assert!(
+        shown.contains("expected: a number from -50 to 50; found: -846.9"),
+        "{shown}"
+    );
 }
 
 /// The external-program fixture with the fake module as `peek` (environment report) and as
