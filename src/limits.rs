@@ -155,6 +155,33 @@ pub fn read_input_in(dir: &InputDir, name: &str) -> std::io::Result<Vec<u8>> {
     read_open(f, limit)
 }
 
+/// The names in `dir`, read through its handle (so from the folder that was opened, whatever
+/// its path leads to now), and whether every entry could be read.
+pub fn list_dir(dir: &InputDir) -> std::io::Result<(Vec<String>, bool)> {
+    let mut names = Vec::new();
+    let mut complete = true;
+    #[cfg(unix)]
+    for entry in rustix::fs::Dir::read_from(&dir.fd)? {
+        match entry {
+            Ok(e) => {
+                let name = e.file_name().to_string_lossy();
+                if name != "." && name != ".." {
+                    names.push(name.into_owned());
+                }
+            }
+            Err(_) => complete = false,
+        }
+    }
+    #[cfg(not(unix))]
+    for entry in std::fs::read_dir(&dir.path)? {
+        match entry {
+            Ok(e) => names.push(e.file_name().to_string_lossy().into_owned()),
+            Err(_) => complete = false,
+        }
+    }
+    Ok((names, complete))
+}
+
 #[cfg(unix)]
 fn input_flags() -> rustix::fs::OFlags {
     use rustix::fs::OFlags;

@@ -189,19 +189,19 @@ pub fn csv_options(program: &Program) -> CsvOptions {
 /// Reads one file of the folder; `None` when it does not exist. Unreadable or non-UTF-8 files
 /// give an error diagnostic.
 ///
-/// `listing` is the folder's entries with their types, when the folder could be listed: it
-/// answers "is there such a file" without a `stat` call per missing file. Whatever is there is
+/// `listing` is the names in the folder (read through its handle), when it could be listed: it
+/// answers "is there such a file" without an `open` call per missing file. Whatever is there is
 /// opened without following links and refused unless it is a regular file.
 fn read_input(
     dir: &crate::limits::InputDir,
     name: &str,
-    listing: Option<&[(String, std::fs::FileType)]>,
+    listing: Option<&[String]>,
     ctx: &FileCtx,
     files: &mut Vec<InputFile>,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Result<String, ()>> {
     if let Some(l) = listing
-        && !l.iter().any(|(n, _)| n == name)
+        && !l.iter().any(|n| n == name)
     {
         return None;
     }
@@ -278,26 +278,11 @@ pub fn load_participant(
 
     // The folder's entries: files the tool does not read but that look like inputs are most
     // likely a misspelt name; the listing also tells `read_input` which input files exist. It
-    // is only trusted when every entry could be read with its type.
-    let mut listing: Option<Vec<(String, std::fs::FileType)>> = None;
-    if let Ok(entries) = std::fs::read_dir(&dir.path) {
-        let mut complete = true;
-        let mut typed = Vec::new();
-        let mut names: Vec<String> = Vec::new();
-        for e in entries {
-            let Ok(e) = e else {
-                complete = false;
-                continue;
-            };
-            let name = e.file_name().to_string_lossy().into_owned();
-            match e.file_type() {
-                Ok(t) => typed.push((name.clone(), t)),
-                Err(_) => complete = false,
-            }
-            names.push(name);
-        }
+    // is read through the folder's handle and only trusted when every entry could be read.
+    let mut listing: Option<Vec<String>> = None;
+    if let Ok((mut names, complete)) = crate::limits::list_dir(&handle) {
         if complete {
-            listing = Some(typed);
+            listing = Some(names.clone());
         }
         names.sort();
         let mut stray = 0usize;
