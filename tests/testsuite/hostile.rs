@@ -489,6 +489,22 @@ fn links_and_special_files_are_never_read() {
         ),
         "{shown}"
     );
+
+    // program.yaml as a link is refused too: nothing is computed.
+    std::fs::rename(t.dir.join("program.yaml"), scratch.join("program.yaml")).unwrap();
+    std::os::unix::fs::symlink(scratch.join("program.yaml"), t.dir.join("program.yaml")).unwrap();
+    let r = run_bin(&t, &["check", "{dir}", "--as-of", AS_OF], &[], None);
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::PROGRAM_INVALID,
+        "{}",
+        r.stderr
+    );
+    let shown = format!("{}{}", r.stdout, r.stderr);
+    assert!(
+        shown.contains("program.yaml: cannot read the program file (it is a symbolic link"),
+        "{shown}"
+    );
 }
 
 /// Ceiling on the virtual memory of a run over hostile files. A clean run of a few
