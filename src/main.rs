@@ -7,6 +7,8 @@ use cohortpress::exit_code;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
+    // Processes that external modules leave behind are adopted and stopped, up to the end.
+    let _modules = cohortpress::modules::external::Containment::install();
     let cli = Cli::parse();
     let code = match cli.command {
         Command::Check { program, as_of } => {

@@ -190,6 +190,10 @@ impl Launch {
             cmd.process_group(0);
         }
         let shown = self.program.display().to_string();
+        // Started and registered under the lock of the live groups, so that a sweep for strays
+        // (see `Containment`) never takes a module that has just started for one.
+        #[cfg(unix)]
+        let mut live = live_groups();
         let child = match cmd.spawn() {
             Ok(c) => c,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
@@ -211,7 +215,13 @@ impl Launch {
             }
             Err(e) => return Err(CallError::Failed(format!("cannot start `{shown}`: {e}"))),
         };
-        let mut running = Running::new(child, workdir.path());
+        #[cfg(unix)]
+        {
+            stop_modules_on_interrupt();
+            live.insert(child.id(), workdir.path().to_path_buf());
+            drop(live);
+        }
+        let mut running = Running::new(child);
         let (tx, rx) = mpsc::channel();
 
         // Standard input is written from its own thread: a module that never reads must not be
@@ -428,6 +438,8 @@ fn stop_modules_on_interrupt() {
                     }
                     let _ = std::fs::remove_dir_all(dir);
                 }
+                #[cfg(target_os = "linux")]
+                stop_adopted();
                 // Keep the lock: no new group is registered while the process ends.
                 let _ = signal_hook::low_level::emulate_default_handler(signal);
                 std::process::exit(128 + signal);
@@ -436,15 +448,133 @@ fn stop_modules_on_interrupt() {
     });
 }
 
-impl Running {
-    fn new(child: Child, workdir: &Path) -> Self {
-        #[cfg(unix)]
+/// Whether this process adopts orphaned descendants (see [`Containment`]).
+#[cfg(target_os = "linux")]
+static SUBREAPER: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+
+/// Extends the containment of external modules to processes that leave their module's process
+/// group (`setsid`, daemons): the program becomes a *child subreaper* (Linux), so such a process
+/// is adopted by it instead of by init when its parent ends, and every adopted process is killed
+/// (with its own group) and reaped after each module call and when the guard is dropped.
+///
+/// For the `cohortpress` binary only, held for its whole life: a process that starts other
+/// programs itself (a test harness running the binary) must not use it, since a sweep kills
+/// every child that is not a running module.
+#[must_use = "the guard sweeps up strays when it is dropped"]
+pub struct Containment(());
+
+impl Containment {
+    /// Becomes a child subreaper where the system supports it (Linux); elsewhere modules are
+    /// contained by their process groups alone.
+    pub fn install() -> Containment {
+        #[cfg(target_os = "linux")]
         {
-            stop_modules_on_interrupt();
-            live_groups().insert(child.id(), workdir.to_path_buf());
+            use std::sync::atomic::Ordering;
+            let me = rustix::process::getpid();
+            match rustix::process::set_child_subreaper(Some(me)) {
+                Ok(()) => SUBREAPER.store(true, Ordering::SeqCst),
+                Err(e) => tracing::debug!("cannot become a child subreaper: {e}"),
+            }
         }
-        #[cfg(not(unix))]
-        let _ = workdir;
+        Containment(())
+    }
+}
+
+impl Drop for Containment {
+    fn drop(&mut self) {
+        #[cfg(unix)]
+        sweep_strays(&live_groups());
+    }
+}
+
+/// Kills and reaps every child of this process that is not a running module: processes that
+/// left a module's group and were adopted after their parent ended. Does nothing unless
+/// [`Containment::install`] made this process a subreaper. `live` is the locked set of running
+/// modules, so no module starts or ends meanwhile.
+#[cfg(unix)]
+fn sweep_strays(live: &std::collections::BTreeMap<u32, PathBuf>) {
+    #[cfg(target_os = "linux")]
+    {
+        use rustix::process::{
+            Pid, Signal, WaitOptions, kill_process, kill_process_group, waitpid,
+        };
+        use std::sync::atomic::Ordering;
+        if !SUBREAPER.load(Ordering::SeqCst) {
+            return;
+        }
+        let me = std::process::id();
+        // Killing an adopted process can orphan its own children, who are adopted in turn:
+        // repeat until a pass finds none (bounded, in case something keeps forking).
+        for _ in 0..16 {
+            let strays: Vec<(u32, u32)> = children_of(me)
+                .into_iter()
+                .filter(|(pid, _)| !live.contains_key(pid))
+                .collect();
+            if strays.is_empty() {
+                return;
+            }
+            for &(pid, pgid) in &strays {
+                let Some(p) = Pid::from_raw(pid as i32) else {
+                    continue;
+                };
+                tracing::debug!("stopping process {pid}, left behind by an external module");
+                if pgid == pid {
+                    let _ = kill_process_group(p, Signal::KILL);
+                }
+                let _ = kill_process(p, Signal::KILL);
+                let _ = waitpid(Some(p), WaitOptions::empty());
+            }
+        }
+    }
+    #[cfg(not(target_os = "linux"))]
+    let _ = live;
+}
+
+/// When the process is about to end on a signal: kills every process it has adopted (see
+/// [`Containment`]) with its group. The modules were just killed, and processes they detached
+/// are adopted a moment after, so this looks a few times.
+#[cfg(target_os = "linux")]
+fn stop_adopted() {
+    use rustix::process::{Pid, Signal, kill_process, kill_process_group};
+    use std::sync::atomic::Ordering;
+    if !SUBREAPER.load(Ordering::SeqCst) {
+        return;
+    }
+    let me = std::process::id();
+    for _ in 0..20 {
+        for (pid, pgid) in children_of(me) {
+            if let Some(p) = Pid::from_raw(pid as i32) {
+                if pgid == pid {
+                    let _ = kill_process_group(p, Signal::KILL);
+                }
+                let _ = kill_process(p, Signal::KILL);
+            }
+        }
+        std::thread::sleep(Duration::from_millis(10));
+    }
+}
+
+/// The children of process `parent`, with their process group ids, from `/proc`.
+#[cfg(target_os = "linux")]
+fn children_of(parent: u32) -> Vec<(u32, u32)> {
+    let Ok(dir) = std::fs::read_dir("/proc") else {
+        return Vec::new();
+    };
+    dir.filter_map(|e| {
+        let pid: u32 = e.ok()?.file_name().to_str()?.parse().ok()?;
+        let stat = std::fs::read_to_string(format!("/proc/{pid}/stat")).ok()?;
+        // After the command name in parentheses: state, ppid, pgrp.
+        let mut rest = stat.rsplit_once(')')?.1.split_whitespace();
+        let ppid: u32 = rest.nth(1)?.parse().ok()?;
+        let pgid: u32 = rest.next()?.parse().ok()?;
+        (ppid == parent).then_some((pid, pgid))
+    })
+    .collect()
+}
+
+impl Running {
+    /// Takes over a module that is registered in the live groups (on Unix).
+    fn new(child: Child) -> Self {
         Running {
             child,
             status: None,
@@ -508,10 +638,22 @@ impl Running {
         }
         self.kill_group();
         #[cfg(unix)]
-        live_groups().remove(&self.child.id());
-        let s = self.child.wait()?;
-        self.status = Some(s);
-        Ok(s)
+        {
+            // Reaped and unregistered under one lock: a sweep for strays never sees the module
+            // unregistered but not yet reaped (it would take it for a stray).
+            let mut live = live_groups();
+            let s = self.child.wait()?;
+            live.remove(&self.child.id());
+            self.status = Some(s);
+            sweep_strays(&live);
+            Ok(s)
+        }
+        #[cfg(not(unix))]
+        {
+            let s = self.child.wait()?;
+            self.status = Some(s);
+            Ok(s)
+        }
     }
 }
 
