@@ -554,22 +554,49 @@ fn stop_adopted() {
     }
 }
 
-/// The children of process `parent`, with their process group ids, from `/proc`.
+/// The children of this process (`me`), with their process group ids, from `/proc`: the
+/// `children` lists of its threads where the kernel provides them (cheap), else a scan of every
+/// process.
 #[cfg(target_os = "linux")]
-fn children_of(parent: u32) -> Vec<(u32, u32)> {
-    let Ok(dir) = std::fs::read_dir("/proc") else {
-        return Vec::new();
-    };
-    dir.filter_map(|e| {
-        let pid: u32 = e.ok()?.file_name().to_str()?.parse().ok()?;
+fn children_of(me: u32) -> Vec<(u32, u32)> {
+    let stat_of = |pid: u32| -> Option<(u32, u32)> {
         let stat = std::fs::read_to_string(format!("/proc/{pid}/stat")).ok()?;
         // After the command name in parentheses: state, ppid, pgrp.
         let mut rest = stat.rsplit_once(')')?.1.split_whitespace();
         let ppid: u32 = rest.nth(1)?.parse().ok()?;
         let pgid: u32 = rest.next()?.parse().ok()?;
-        (ppid == parent).then_some((pid, pgid))
-    })
-    .collect()
+        Some((ppid, pgid))
+    };
+    let children_files = Path::new(&format!("/proc/{me}/task/{me}/children")).exists();
+    let candidates: Vec<u32> = if children_files {
+        std::fs::read_dir(format!("/proc/{me}/task"))
+            .map(|tasks| {
+                tasks
+                    .filter_map(|t| std::fs::read_to_string(t.ok()?.path().join("children")).ok())
+                    .flat_map(|text| {
+                        text.split_whitespace()
+                            .filter_map(|p| p.parse::<u32>().ok())
+                            .collect::<Vec<_>>()
+                    })
+                    .collect()
+            })
+            .unwrap_or_default()
+    } else {
+        // A kernel without the `children` files: every process is looked at.
+        std::fs::read_dir("/proc")
+            .map(|dir| {
+                dir.filter_map(|e| e.ok()?.file_name().to_str()?.parse().ok())
+                    .collect()
+            })
+            .unwrap_or_default()
+    };
+    candidates
+        .into_iter()
+        .filter_map(|pid| {
+            let (ppid, pgid) = stat_of(pid)?;
+            (ppid == me).then_some((pid, pgid))
+        })
+        .collect()
 }
 
 impl Running {
@@ -587,16 +614,12 @@ impl Running {
         use rustix::process::{Pid, WaitId, WaitIdOptions, waitid};
         let pid = Pid::from_child(&self.child);
         std::thread::spawn(move || {
-            loop {
-                match waitid(
-                    WaitId::Pid(pid),
-                    WaitIdOptions::EXITED | WaitIdOptions::NOWAIT,
-                ) {
-                    Err(rustix::io::Errno::INTR) => continue,
-                    // Exited, or already reaped because the call ended another way.
-                    _ => break,
-                }
-            }
+            // Exited, or already reaped because the call ended another way; retried only
+            // when interrupted.
+            while let Err(rustix::io::Errno::INTR) = waitid(
+                WaitId::Pid(pid),
+                WaitIdOptions::EXITED | WaitIdOptions::NOWAIT,
+            ) {}
             let _ = tx.send(Event::Exited);
         });
     }
@@ -1030,6 +1053,24 @@ mod tests {
         assert_eq!(l.program, PathBuf::from("/srv/program/plugins/x.py"));
         assert_eq!(l.args, vec!["-v".to_string()]);
         assert_eq!(l.dir, root);
+        let tmp = tempfile::tempdir().unwrap();
+        std::fs::create_dir(tmp.path().join("plugins")).unwrap();
+        std::fs::write(tmp.path().join("plugins/x.py"), "").unwrap();
+        let command = [
+            "python3",
+            "plugins/x.py",
+            "--opt=plugins/x.py",
+            "a/b",
+            "plain",
+        ];
+        let command: Vec<String> = command.iter().map(|s| s.to_string()).collect();
+        let l = Launch::new("x", &command, tmp.path(), t).unwrap();
+        let x = tmp
+            .path()
+            .join("plugins/x.py")
+            .to_string_lossy()
+            .into_owned();
+        assert_eq!(l.args, [&x, "--opt=plugins/x.py", "a/b", "plain"]);
         let l = Launch::new("x", &["python3".into()], root, t).unwrap();
         assert_eq!(l.program, PathBuf::from("python3"));
         assert!(
@@ -1047,6 +1088,21 @@ mod tests {
         assert!(e.contains("found: `not json`"), "{e}");
         let e = parse_messages(b"{\"type\":\"shout\"}\n").unwrap_err();
         assert!(e.contains("unknown variant `shout`"), "{e}");
+    }
+
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn children_are_listed_with_their_process_groups() {
+        use std::os::unix::process::CommandExt;
+        let mut child = Command::new("sleep")
+            .arg("5")
+            .process_group(0)
+            .spawn()
+            .unwrap();
+        let found = children_of(std::process::id());
+        child.kill().unwrap();
+        child.wait().unwrap();
+        assert!(found.contains(&(child.id(), child.id())), "{found:?}");
     }
 
     #[test]
