@@ -396,8 +396,8 @@ struct Running {
 }
 
 /// Process groups of the modules running right now, with their working folders, so that an
-/// interrupted run can stop them and clean up. A group leaves the map before its leader is
-/// reaped, so an id in it is never a reused one.
+/// interrupted run can stop them and clean up. A module is added when it starts (under the lock,
+/// so that a sweep never takes it for a stray) and removed just after it is reaped.
 #[cfg(unix)]
 static LIVE_GROUPS: std::sync::Mutex<std::collections::BTreeMap<u32, PathBuf>> =
     std::sync::Mutex::new(std::collections::BTreeMap::new());
@@ -662,10 +662,11 @@ impl Running {
         self.kill_group();
         #[cfg(unix)]
         {
-            // Reaped and unregistered under one lock: a sweep for strays never sees the module
-            // unregistered but not yet reaped (it would take it for a stray).
-            let mut live = live_groups();
+            // Reaped first, unregistered after: a sweep for strays never sees the module
+            // unregistered but not yet reaped (it would take it for a stray), and no lock is held
+            // while waiting.
             let s = self.child.wait()?;
+            let mut live = live_groups();
             live.remove(&self.child.id());
             self.status = Some(s);
             sweep_strays(&live);
