@@ -161,16 +161,26 @@ impl Launch {
     /// arrived: a process it left behind holding the pipe open cannot turn an answer into a
     /// timeout.
     pub fn exchange(&self, input: Vec<u8>, answer_lines: usize) -> Result<Vec<u8>, CallError> {
+        // The working folder is created, the module started and both registered under the lock
+        // of the live groups: an interrupt then finds every folder it has to remove, and a sweep
+        // for strays (see `Containment`) never takes a module that has just started for one.
+        #[cfg(unix)]
+        let mut live = live_groups();
         // Declared before the process so that it is removed after the process group is killed.
-        let workdir = tempfile::Builder::new()
-            .prefix("cohortpress-module-")
-            .tempdir()
-            .map_err(|e| {
-                CallError::Failed(format!(
-                    "cannot create an empty working folder for it in {}: {e}",
-                    std::env::temp_dir().display()
-                ))
-            })?;
+        // Owner only: a module may write a participant's data there.
+        let mut folder = tempfile::Builder::new();
+        folder.prefix("cohortpress-module-");
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            folder.permissions(std::fs::Permissions::from_mode(0o700));
+        }
+        let workdir = folder.tempdir().map_err(|e| {
+            CallError::Failed(format!(
+                "cannot create an empty working folder for it in {}: {e}",
+                std::env::temp_dir().display()
+            ))
+        })?;
         let mut cmd = Command::new(&self.program);
         cmd.args(&self.args).current_dir(workdir.path()).env_clear();
         for key in PASSED_ENVIRONMENT {
@@ -190,10 +200,6 @@ impl Launch {
             cmd.process_group(0);
         }
         let shown = self.program.display().to_string();
-        // Started and registered under the lock of the live groups, so that a sweep for strays
-        // (see `Containment`) never takes a module that has just started for one.
-        #[cfg(unix)]
-        let mut live = live_groups();
         let child = match cmd.spawn() {
             Ok(c) => c,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => {

@@ -737,6 +737,8 @@ struct Lingered {
     /// The module's working folder and how many entries it held when the module started.
     cwd: PathBuf,
     entries: usize,
+    /// The working folder's permission bits, in octal.
+    mode: String,
     /// The module and every process it started.
     pids: Vec<u32>,
 }
@@ -745,13 +747,14 @@ fn lingered(pid_file: &Path) -> Vec<Lingered> {
     let text = std::fs::read_to_string(pid_file).expect("the module wrote its pid file");
     let mut calls: Vec<Lingered> = Vec::new();
     for line in text.lines() {
-        let mut parts = line.splitn(3, ' ');
+        let mut parts = line.splitn(4, ' ');
         let pid: u32 = parts.next().unwrap().parse().unwrap();
         match parts.next().unwrap() {
             "-" => calls.last_mut().unwrap().pids.push(pid),
             cwd => calls.push(Lingered {
                 cwd: PathBuf::from(cwd),
                 entries: parts.next().unwrap().parse().unwrap(),
+                mode: parts.next().unwrap().to_string(),
                 pids: vec![pid],
             }),
         }
@@ -848,6 +851,7 @@ fn binary_uses_the_answer_of_a_module_that_leaves_processes_behind_and_stops_the
     // removed after the call.
     for c in &calls {
         assert_eq!(c.entries, 0, "{c:?}");
+        assert_eq!(c.mode, "700", "{c:?}");
         assert!(!c.cwd.starts_with(&t.dir), "{c:?}");
         assert!(!c.cwd.exists(), "{c:?}");
     }
