@@ -684,7 +684,7 @@ fn external_modules_get_a_minimal_environment_and_are_stopped_at_their_timeout()
          program: {id: ext-fixture, title: Fixture, start: 2027-03-01, end: 2027-05-31}\n\
          modules:\n  \
            - id: peek\n    command: [plugins/fake.py, peek, env]\n  \
-           - id: slow\n    command: [plugins/fake.py, slow, sleep, XP-02]\n    timeout_seconds: 1\n",
+           - id: slow\n    command: [plugins/fake.py, slow, sleep, XP-02]\n    timeout_seconds: 2\n",
     )
     .unwrap();
     let o = t.dir.parent().unwrap().join("out");
@@ -712,7 +712,7 @@ fn external_modules_get_a_minimal_environment_and_are_stopped_at_their_timeout()
     );
     assert!(
         stderr.contains(
-            "XP-02: module slow failed: external module: did not finish within 1 s and was stopped"
+            "XP-02: module slow failed: external module: did not finish within 2 s and was stopped"
         ),
         "{stderr}"
     );
