@@ -109,6 +109,8 @@ pub struct OutputTarget {
     /// The program folder: neither it, nor a folder containing it, nor anything inside its
     /// `participants/` may be an output folder.
     pub program_root: PathBuf,
+    /// The program's own templates folder (`report.templates`), also an input.
+    pub templates: Option<PathBuf>,
     /// What the run writes.
     pub scope: OutputScope,
     /// How the user named the folder, for messages (`--out` or `report.out`).
@@ -236,6 +238,24 @@ fn existing_output(dir: &Path) -> Result<Existing, String> {
     Err("it is not empty and holds no cohortpress manifest.json".into())
 }
 
+/// Whether `dir` is a real folder (not a link) that is empty or holds one of our outputs: the
+/// only kind of leftover `.NAME.previous` a run moves or removes.
+fn is_our_folder(dir: &Path) -> bool {
+    fs::symlink_metadata(dir).is_ok_and(|m| m.is_dir())
+        && matches!(
+            existing_output(dir),
+            Ok(Existing::Empty | Existing::Ours(_))
+        )
+}
+
+fn in_the_way(previous: &Path) -> StagingError {
+    StagingError::Refused(format!(
+        "{} is in the way of the output swap and is not a cohortpress output (or is a link); \
+         move it away",
+        previous.display()
+    ))
+}
+
 /// The output folder with every link resolved: the folder itself if it exists, else its
 /// (created) parent resolved plus its name.
 fn resolve_output(dir: &Path, named_by: &str) -> Result<PathBuf, StagingError> {
@@ -270,12 +290,29 @@ fn resolve_output(dir: &Path, named_by: &str) -> Result<PathBuf, StagingError> {
 fn check_not_inputs(out: &Path, target: &OutputTarget) -> Result<(), StagingError> {
     let program = fs::canonicalize(&target.program_root).map_err(io(&target.program_root))?;
     let participants = program.join(crate::participant::PARTICIPANTS_DIR);
+    // participants/ may be a link (to a share): its real folder is just as much an input, and
+    // so is the templates folder.
+    let resolved = |p: &Path| fs::canonicalize(p).ok().filter(|r| r != p);
+    let real_participants = resolved(&participants);
+    let templates = target
+        .templates
+        .as_deref()
+        .and_then(|t| fs::canonicalize(t).ok());
     let why = if out == program {
         Some("it is the program folder itself")
     } else if program.starts_with(out) {
         Some("it contains the program folder")
-    } else if out.starts_with(&participants) {
-        Some("it lies inside the program's participants/ folder")
+    } else if out.starts_with(&participants)
+        || real_participants
+            .as_ref()
+            .is_some_and(|p| out.starts_with(p) || p.starts_with(out))
+    {
+        Some("it is, holds or lies inside the program's participants/ folder")
+    } else if templates
+        .as_ref()
+        .is_some_and(|t| out.starts_with(t) || t.starts_with(out))
+    {
+        Some("it is, holds or lies inside the program's templates folder (report.templates)")
     } else {
         None
     };
@@ -354,8 +391,10 @@ impl Staging {
         // Refuse before the lock file is created, so a refused run leaves no trace; checked again
         // under the lock below, after any recovery.
         let previous = parent.join(format!(".{name}.previous"));
-        if fs::symlink_metadata(&out_dir).is_ok() || fs::symlink_metadata(&previous).is_err() {
+        if fs::symlink_metadata(&out_dir).is_ok() {
             check_replaceable(&out_dir, target)?;
+        } else if fs::symlink_metadata(&previous).is_ok() && !is_our_folder(&previous) {
+            return Err(in_the_way(&previous));
         }
         let lock_path = parent.join(format!(".{name}.lock"));
         let lock = File::options()
@@ -379,23 +418,24 @@ impl Staging {
         // A run killed between the two renames of a commit left the complete previous output
         // here: put it back before anything else. A previous copy beside a complete output is
         // a removal that failed (a read-only folder, say): finish it.
+        // Only a real folder (never a link) that holds one of our outputs, or nothing, is
+        // touched.
         if fs::symlink_metadata(&previous).is_ok() {
+            if !is_our_folder(&previous) {
+                return Err(in_the_way(&previous));
+            }
             if fs::symlink_metadata(&out_dir).is_err() {
                 fs::rename(&previous, &out_dir).map_err(io(&out_dir))?;
-            } else if matches!(existing_output(&previous), Ok(Existing::Ours(_))) {
-                remove_ours(&previous)?;
             } else {
-                return Err(StagingError::Refused(format!(
-                    "{} is in the way of the output swap and is not a cohortpress output; \
-                     move it away",
-                    previous.display()
-                )));
+                remove_ours(&previous)?;
             }
         }
         check_replaceable(&out_dir, target)?;
         // Staging left by a killed run: we hold the lock, so nobody else is using it.
-        if fs::symlink_metadata(&dir).is_ok() {
-            let ours = fs::symlink_metadata(dir.join(STAGING_MARKER)).is_ok_and(|m| m.is_file());
+        if let Ok(meta) = fs::symlink_metadata(&dir) {
+            // A real folder with our marker: a link is never followed nor removed.
+            let ours = meta.is_dir()
+                && fs::symlink_metadata(dir.join(STAGING_MARKER)).is_ok_and(|m| m.is_file());
             if !ours {
                 return Err(StagingError::Refused(format!(
                     "{} is in the way of the output staging folder and was not made by \
@@ -515,16 +555,41 @@ impl Staging {
             sync_dir(f)?;
         }
         sync_dir(&self.dir)?;
+        let mut was_empty = false;
         if fs::symlink_metadata(&self.final_dir).is_ok() {
             fs::rename(&self.final_dir, &self.previous).map_err(io(&self.final_dir))?;
+            // Checked again once it is out of the way (nothing can be added to it under its
+            // old name any more): a folder that was empty when the run began may have been
+            // given files since (someone saving to a shared drive); it is put back untouched.
+            match existing_output(&self.previous) {
+                Ok(Existing::Ours(_)) => {}
+                Ok(Existing::Empty) => was_empty = true,
+                Err(found) => {
+                    fs::rename(&self.previous, &self.final_dir).map_err(io(&self.previous))?;
+                    return Err(StagingError::Io {
+                        path: self.final_dir.display().to_string(),
+                        source: std::io::Error::other(format!(
+                            "the output folder changed while the run went on ({found}); it \
+                             was left as it is and the new output was not written; check \
+                             what is in it, or name a new folder"
+                        )),
+                    });
+                }
+            }
         }
         fs::rename(&self.dir, &self.final_dir).map_err(io(&self.final_dir))?;
         self.committed = true;
         if let Some(parent) = self.final_dir.parent() {
             sync_dir(parent)?;
         }
+        // An empty folder is removed only while it is still empty (`rmdir`).
+        let removed = if was_empty {
+            fs::remove_dir(&self.previous).map_err(io(&self.previous))
+        } else {
+            remove_ours(&self.previous)
+        };
         if fs::symlink_metadata(&self.previous).is_ok()
-            && let Err(e) = remove_ours(&self.previous)
+            && let Err(e) = removed
         {
             // The new output is in place; the next run finishes the removal.
             tracing::warn!("the previous output could not be removed yet: {e}");

@@ -80,6 +80,13 @@ impl RunPlan {
         OutputTarget {
             dir: self.out_dir.clone(),
             program_root: self.program.root.clone(),
+            templates: self
+                .program
+                .def
+                .report
+                .templates
+                .as_ref()
+                .map(|t| self.program.root.join(t)),
             scope: self.scope(),
             named_by: self.out_named_by,
         }
@@ -813,7 +820,9 @@ fn reuse_participant(
 ) -> Result<Option<ParticipantRecord>, RunError> {
     let prev = staging.final_dir();
     let rel = partial::cache_path(&dir.id);
-    let Ok(bytes) = std::fs::read(prev.join(&rel)) else {
+    // The previous output is read like an input: no links, no FIFOs or devices (which would
+    // make the run wait or read forever), regular files within the size limit only.
+    let Ok(bytes) = crate::limits::read_input(&prev.join(&rel)) else {
         return Ok(None);
     };
     let Some(rec) = ParticipantRecord::from_bytes(&bytes) else {
@@ -830,7 +839,7 @@ fn reuse_participant(
     }
     let mut reports = Vec::with_capacity(rec.reports.len());
     for r in &rec.reports {
-        match std::fs::read(prev.join(&r.path)) {
+        match crate::limits::read_input(&prev.join(&r.path)) {
             Ok(b) if blake3::hash(&b).to_hex().as_str() == r.blake3 => reports.push(b),
             _ => return Ok(None),
         }

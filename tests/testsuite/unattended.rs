@@ -286,3 +286,239 @@ fn a_panic_maps_to_exit_code_70_with_one_line() {
     assert!(stderr.starts_with("internal error"), "{stderr}");
     assert_eq!(stderr.trim_end().lines().count(), 1, "{stderr}");
 }
+
+/// Runs `cohortpress ARGS…` like [`ProgramTest::run`], but kills it after `secs` seconds; `None`
+/// when it had to be killed (a run that waits forever under cron holds its lock forever).
+fn run_within(t: &ProgramTest, args: &[&str], secs: u64) -> Option<i32> {
+    let mut child = Command::new(BIN)
+        .args(
+            args.iter()
+                .map(|a| a.replace("{dir}", &t.dir.to_string_lossy())),
+        )
+        .current_dir(&t.dir)
+        .stdin(std::process::Stdio::null())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    let deadline = std::time::Instant::now() + std::time::Duration::from_secs(secs);
+    loop {
+        if let Some(status) = child.try_wait().unwrap() {
+            return status.code();
+        }
+        if std::time::Instant::now() > deadline {
+            child.kill().unwrap();
+            child.wait().unwrap();
+            return None;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+}
+
+#[test]
+fn an_output_inside_participants_reached_through_its_link_is_refused() {
+    // participants/ may be a link to a share; its real path is still an input.
+    let t = small();
+    let share = beside(&t, "share-participants");
+    std::fs::rename(t.dir.join("participants"), &share).unwrap();
+    std::os::unix::fs::symlink(&share, t.dir.join("participants")).unwrap();
+    let before = tree_hashes(&share);
+    for out in [share.join("reports"), share.join("clean-a").join("out")] {
+        let o = run_to(&t, &out, &[]);
+        assert_eq!(o.code, 2, "--out {}: {o:?}", out.display());
+        assert!(o.stderr.contains("participants/"), "{}", o.stderr);
+        assert_eq!(tree_hashes(&share), before, "--out {}", out.display());
+        assert!(!out.exists());
+    }
+    // A folder holding the (linked) participants is refused too, even an empty-looking one
+    // would be: here the share's parent, which holds the program as well as the participants.
+    let o = run_to(&t, share.parent().unwrap(), &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+}
+
+#[test]
+fn the_templates_folder_is_never_an_output() {
+    let t = small();
+    let templates = t.dir.join("my-templates");
+    std::fs::create_dir(&templates).unwrap();
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace("report:\n", "report:\n  templates: my-templates\n");
+    std::fs::write(t.dir.join("program.yaml"), &yaml).unwrap();
+    let o = run_to(&t, &templates, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(o.stderr.contains("templates"), "{}", o.stderr);
+    assert_eq!(std::fs::read_dir(&templates).unwrap().count(), 0);
+}
+
+#[test]
+fn planted_previous_and_staging_links_are_neither_followed_nor_removed() {
+    let t = small();
+    let precious = beside(&t, "precious");
+    foreign_folder(&precious);
+    let before = tree_hashes(&precious);
+    let out = beside(&t, "reports");
+    let previous = beside(&t, ".reports.previous");
+    let staging = beside(&t, ".reports.staging");
+
+    // No output yet, a link named like a left-over previous output: not moved into place.
+    std::os::unix::fs::symlink(&precious, &previous).unwrap();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(o.stderr.contains(".reports.previous"), "{}", o.stderr);
+    assert!(std::fs::symlink_metadata(&previous).unwrap().is_symlink());
+    assert!(
+        std::fs::symlink_metadata(&out).is_err(),
+        "the link was moved"
+    );
+    std::fs::remove_file(&previous).unwrap();
+
+    // A real folder of someone else's under that name is not moved into place either.
+    foreign_folder(&previous);
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(previous.join("thesis.txt").exists());
+    assert!(std::fs::symlink_metadata(&out).is_err());
+    std::fs::remove_dir_all(&previous).unwrap();
+
+    // A staging link to a folder that carries the staging marker: neither emptied nor removed.
+    std::fs::write(precious.join(".cohortpress-staging"), "").unwrap();
+    let before_marked = tree_hashes(&precious);
+    std::os::unix::fs::symlink(&precious, &staging).unwrap();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(std::fs::symlink_metadata(&staging).unwrap().is_symlink());
+    assert_eq!(tree_hashes(&precious), before_marked);
+    std::fs::remove_file(&staging).unwrap();
+    std::fs::remove_file(precious.join(".cohortpress-staging")).unwrap();
+
+    // With a complete output in place, a previous link to another cohortpress output.
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let other = beside(&t, "other-reports");
+    assert_eq!(run_to(&t, &other, &[]).code, 0);
+    let other_before = tree_hashes(&other);
+    std::os::unix::fs::symlink(&other, &previous).unwrap();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(std::fs::symlink_metadata(&previous).unwrap().is_symlink());
+    assert_eq!(tree_hashes(&other), other_before);
+    assert_eq!(tree_hashes(&precious), before);
+}
+
+#[test]
+fn an_empty_out_folder_filled_during_the_run_is_not_deleted() {
+    // Someone saves a file into the (empty) output folder while the run goes on: here an
+    // external module does it, at a known moment.
+    let t = small();
+    let out = beside(&t, "shared-drive");
+    std::fs::create_dir(&out).unwrap();
+    let fake = fixture("fake-plugins").join("fake.py");
+    // The first call (the handshake, before the run starts writing) leaves a flag; the
+    // later ones (computing, while the run writes its staging folder) save the file.
+    let flag = beside(&t, "handshake-done");
+    let script = format!(
+        "if [ -e '{flag}' ]; then echo notes > '{out}/notes.txt'; else touch '{flag}'; fi; \
+         exec python3 '{fake}' tallies ok",
+        flag = flag.display(),
+        out = out.display(),
+        fake = fake.display()
+    );
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace(
+        "  - id: outcomes\n",
+        &format!("  - id: outcomes\n  - id: tallies\n    command: [sh, -c, \"{script}\"]\n"),
+    );
+    std::fs::write(t.dir.join("program.yaml"), &yaml).unwrap();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr.contains("notes.txt") || o.stderr.contains("not empty"),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(
+        std::fs::read_to_string(out.join("notes.txt")).unwrap(),
+        "notes\n"
+    );
+    no_leftovers(out.parent().unwrap(), "shared-drive");
+}
+
+#[test]
+fn a_fifo_or_device_in_the_previous_output_never_hangs_incremental_or_merge() {
+    let t = small();
+    let out = beside(&t, "reports");
+    assert_eq!(run_to(&t, &out, &[]).code, 0);
+    let cache = out.join("cache").join("clean-a.json");
+    std::fs::remove_file(&cache).unwrap();
+    assert!(
+        Command::new("mkfifo")
+            .arg(&cache)
+            .status()
+            .unwrap()
+            .success()
+    );
+    let o = run_within(
+        &t,
+        &[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            out.to_str().unwrap(),
+            "--incremental",
+        ],
+        30,
+    );
+    assert_eq!(o, Some(0), "the run waited on a FIFO");
+    // The report replaced by a link to a device that never ends: recomputed, never read.
+    let report = out.join("participants").join("clean-b.html");
+    std::fs::remove_file(&report).unwrap();
+    std::os::unix::fs::symlink("/dev/zero", &report).unwrap();
+    let o = run_within(
+        &t,
+        &[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            out.to_str().unwrap(),
+            "--incremental",
+        ],
+        30,
+    );
+    assert_eq!(o, Some(0));
+    assert!(std::fs::symlink_metadata(&report).unwrap().is_file());
+
+    // merge: a shard whose partial result is a FIFO is refused, not waited on.
+    let shard = beside(&t, "shard-1");
+    assert_eq!(run_to(&t, &shard, &["--shard", "1/1"]).code, 0);
+    let cache = shard.join("cache").join("clean-a.json");
+    std::fs::remove_file(&cache).unwrap();
+    assert!(
+        Command::new("mkfifo")
+            .arg(&cache)
+            .status()
+            .unwrap()
+            .success()
+    );
+    let merged = beside(&t, "merged");
+    let o = run_within(
+        &t,
+        &[
+            "merge",
+            "{dir}",
+            shard.to_str().unwrap(),
+            "--out",
+            merged.to_str().unwrap(),
+        ],
+        30,
+    );
+    assert!(matches!(o, Some(c) if c != 0), "merge: {o:?}");
+    assert!(!merged.exists());
+}
