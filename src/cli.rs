@@ -43,7 +43,7 @@ pub enum Command {
     },
     /// Generate a fictional demo program (for trying the tool and for benchmarks).
     DemoProgram {
-        /// Folder to write (must be empty, absent, or a previous demo program).
+        /// Folder to write (must be empty, absent, or an unedited previous demo program).
         out: PathBuf,
         /// Number of participants.
         #[arg(long, default_value_t = 48)]

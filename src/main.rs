@@ -88,7 +88,13 @@ fn dispatch(cli: Cli) -> i32 {
                         "error: cannot write the demo program to {}: {e}",
                         out.display()
                     );
-                    exit_code::OUTPUT_FAILED
+                    // A refused folder is a wrong command line, like a refused `--out`.
+                    match e.kind() {
+                        std::io::ErrorKind::AlreadyExists | std::io::ErrorKind::InvalidInput => {
+                            exit_code::USAGE
+                        }
+                        _ => exit_code::OUTPUT_FAILED,
+                    }
                 }
             }
         }

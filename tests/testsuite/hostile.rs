@@ -836,3 +836,52 @@ mod readers {
         }
     }
 }
+
+#[test]
+fn demo_program_never_replaces_a_program_made_real_or_a_foreign_folder() {
+    let demo_at = |dir: &Path| {
+        Command::new(BIN)
+            .args(["demo-program", dir.to_str().unwrap(), "--no-defects"])
+            .args(["--participants", "2"])
+            .output()
+            .unwrap()
+    };
+    // A program started from the demo and made real: its title edited, a real participant
+    // added. Generating the demo again by mistake keeps every file.
+    let t = demo(2);
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace("title: Steady Ground 2026", "title: Our Pilot");
+    std::fs::write(t.dir.join("program.yaml"), yaml).unwrap();
+    let real = t.dir.join("participants/LW-0147");
+    std::fs::create_dir(&real).unwrap();
+    std::fs::write(
+        real.join("weights.csv"),
+        "date,weight,unit\n2026-04-02,81.0,kg\n",
+    )
+    .unwrap();
+    let before = tree_hashes(&t.dir);
+    let o = demo_at(&t.dir);
+    assert_eq!(o.status.code(), Some(2), "{o:?}");
+    assert!(
+        String::from_utf8_lossy(&o.stderr).contains("edited"),
+        "{o:?}"
+    );
+    assert_eq!(tree_hashes(&t.dir), before);
+
+    // A folder of someone else's: refused with the command-line code, untouched.
+    let docs = t.dir.parent().unwrap().join("docs");
+    std::fs::create_dir(&docs).unwrap();
+    std::fs::write(docs.join("notes.txt"), "mine").unwrap();
+    let o = demo_at(&docs);
+    assert_eq!(o.status.code(), Some(2), "{o:?}");
+    assert_eq!(
+        std::fs::read_to_string(docs.join("notes.txt")).unwrap(),
+        "mine"
+    );
+
+    // An unedited demo is still regenerated in place.
+    let fresh = t.dir.parent().unwrap().join("fresh");
+    assert!(demo_at(&fresh).status.success());
+    let o = demo_at(&fresh);
+    assert!(o.status.success(), "{o:?}");
+}
