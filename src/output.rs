@@ -269,18 +269,33 @@ fn resolve_output(dir: &Path, named_by: &str) -> Result<PathBuf, StagingError> {
             ))
         }),
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
-            let name = dir.file_name().ok_or_else(|| {
-                refuse(format!(
-                    "the output folder {} ({named_by}) has no folder name",
-                    dir.display()
-                ))
-            })?;
-            let parent = match dir.parent() {
-                Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-                _ => PathBuf::from("."),
-            };
-            fs::create_dir_all(&parent).map_err(io(&parent))?;
-            Ok(fs::canonicalize(&parent).map_err(io(&parent))?.join(name))
+            // Nothing is created here: the nearest folder that exists is resolved and the
+            // missing names appended; `Staging::begin` creates them once the folder is
+            // accepted (a refused run leaves no new folder, e.g. inside a participant's).
+            let mut missing = Vec::new();
+            let mut existing = dir.to_path_buf();
+            loop {
+                match fs::symlink_metadata(&existing) {
+                    Ok(_) => break,
+                    Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+                    Err(e) => return Err(io(&existing)(e)),
+                }
+                let name = existing.file_name().ok_or_else(|| {
+                    refuse(format!(
+                        "the output folder {} ({named_by}) cannot be resolved: `..` after a \
+                         folder that does not exist; name the folder without `..`",
+                        dir.display()
+                    ))
+                })?;
+                missing.push(name.to_os_string());
+                existing = match existing.parent() {
+                    Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+                    _ => PathBuf::from("."),
+                };
+            }
+            let mut out = fs::canonicalize(&existing).map_err(io(&existing))?;
+            out.extend(missing.iter().rev());
+            Ok(out)
         }
         Err(e) => Err(io(dir)(e)),
     }
@@ -396,6 +411,7 @@ impl Staging {
         } else if fs::symlink_metadata(&previous).is_ok() && !is_our_folder(&previous) {
             return Err(in_the_way(&previous));
         }
+        create_parents(&parent)?;
         let lock_path = parent.join(format!(".{name}.lock"));
         let lock = File::options()
             .create(true)
@@ -641,6 +657,11 @@ fn make_owner_writable(dir: &Path) {
 
 #[cfg(not(unix))]
 fn make_owner_writable(_dir: &Path) {}
+
+/// Creates the output's missing parent folders (`mkdir -p`, with the user's umask).
+fn create_parents(parent: &Path) -> Result<(), StagingError> {
+    fs::create_dir_all(parent).map_err(io(parent))
+}
 
 /// Makes a folder's entries durable (fsync of the folder itself).
 fn sync_dir(dir: &Path) -> Result<(), StagingError> {

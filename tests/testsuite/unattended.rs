@@ -522,3 +522,23 @@ fn a_fifo_or_device_in_the_previous_output_never_hangs_incremental_or_merge() {
     assert!(matches!(o, Some(c) if c != 0), "merge: {o:?}");
     assert!(!merged.exists());
 }
+
+#[test]
+fn a_refused_out_creates_no_folder_on_its_way() {
+    // mkdir -p of the output's parents happens only once the folder is accepted: a refused
+    // run must not leave a new folder inside a participant's data.
+    let t = small();
+    let inside = t.dir.join("participants/clean-a/new/reports");
+    let o = run_to(&t, &inside, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(!t.dir.join("participants/clean-a/new").exists());
+    // `..` past a folder that does not exist cannot be resolved: refused, nothing created.
+    let odd = t.dir.join("participants/ghost/../../../elsewhere");
+    let o = run_to(&t, &odd, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(!t.dir.join("participants/ghost").exists());
+    // An accepted new output still gets its parents.
+    let deep = beside(&t, "a/b/reports");
+    assert_eq!(run_to(&t, &deep, &[]).code, 0);
+    assert!(deep.join("manifest.json").is_file());
+}
