@@ -177,7 +177,22 @@ pub fn write_report(report: &CheckReport, out: &mut dyn Write) -> std::io::Resul
 /// Runs the check on the program at `root` and prints the diagnostics to `out`; returns the
 /// exit code (see [`crate::exit_code`]).
 pub fn run_check(root: &Path, as_of: NaiveDate, out: &mut dyn Write) -> i32 {
-    let report = check_program(root, as_of);
+    let mut report = check_program(root, as_of);
+    // `report.out` is checked as `run` would check it (a foreign folder, the program folder,
+    // participants/…), so the same program gives the same exit code from both.
+    if let Ok(prog) = &report.program {
+        let target = crate::output::OutputTarget::for_program(
+            prog,
+            prog.root.join(&prog.def.report.out),
+            crate::output::OutputScope::Complete,
+            "report.out",
+        );
+        if let Err(crate::output::StagingError::Refused(m)) = target.check() {
+            report.program = Err(vec![Diagnostic::error("program.yaml", m)]);
+            report.participants.clear();
+            report.discovery.clear();
+        }
+    }
     match write_report(&report, out) {
         Ok(()) => report.exit_code(),
         Err(_) => exit_code::OUTPUT_FAILED,

@@ -117,6 +117,37 @@ pub struct OutputTarget {
     pub named_by: &'static str,
 }
 
+impl OutputTarget {
+    /// The target for `program` writing into `dir` (named by `named_by`).
+    pub fn for_program(
+        program: &crate::program::Program,
+        dir: PathBuf,
+        scope: OutputScope,
+        named_by: &'static str,
+    ) -> Self {
+        OutputTarget {
+            dir,
+            program_root: program.root.clone(),
+            templates: program
+                .def
+                .report
+                .templates
+                .as_ref()
+                .map(|t| program.root.join(t)),
+            scope,
+            named_by,
+        }
+    }
+
+    /// Whether a run could write this folder (links resolved, nothing created or locked):
+    /// what `check` says about `report.out`, so that `check` and `run` agree.
+    pub fn check(&self) -> Result<(), StagingError> {
+        let out = resolve_output(&self.dir, self.named_by)?;
+        check_not_inputs(&out, self)?;
+        check_replaceable(&out, self)
+    }
+}
+
 /// A staging folder being filled; [`Staging::commit`] swaps it into place.
 pub struct Staging {
     access: Access,

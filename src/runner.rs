@@ -77,19 +77,12 @@ impl RunPlan {
 
     /// The output folder with what it must never touch.
     pub fn output_target(&self) -> OutputTarget {
-        OutputTarget {
-            dir: self.out_dir.clone(),
-            program_root: self.program.root.clone(),
-            templates: self
-                .program
-                .def
-                .report
-                .templates
-                .as_ref()
-                .map(|t| self.program.root.join(t)),
-            scope: self.scope(),
-            named_by: self.out_named_by,
-        }
+        OutputTarget::for_program(
+            &self.program,
+            self.out_dir.clone(),
+            self.scope(),
+            self.out_named_by,
+        )
     }
 
     /// Takes the output folder for this run (see [`Staging::begin`]). A refusal names the

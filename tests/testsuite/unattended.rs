@@ -542,3 +542,23 @@ fn a_refused_out_creates_no_folder_on_its_way() {
     assert_eq!(run_to(&t, &deep, &[]).code, 0);
     assert!(deep.join("manifest.json").is_file());
 }
+
+#[test]
+fn check_and_run_agree_on_a_report_out_that_may_not_be_written() {
+    let t = small();
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let foreign = beside(&t, "documents");
+    foreign_folder(&foreign);
+    for out in ["..", "participants/clean-a", foreign.to_str().unwrap()] {
+        let y = yaml.replace("report:\n", &format!("report:\n  out: {out}\n"));
+        std::fs::write(t.dir.join("program.yaml"), &y).unwrap();
+        let c = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+        let r = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+        assert_eq!(r.code, 3, "report.out {out}: {r:?}");
+        assert_eq!(c.code, r.code, "report.out {out}: {c:?}");
+        assert!(
+            c.stdout.contains("report.out") || c.stderr.contains("report.out"),
+            "{c:?}"
+        );
+    }
+}
