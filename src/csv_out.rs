@@ -7,7 +7,8 @@
 //! as the OWASP guidance on CSV injection recommends (OWASP Foundation, "CSV Injection",
 //! owasp.org/www-community/attacks/CSV_Injection); quoting and doubling of embedded quotes is the
 //! `csv` crate's. A cell that is a plain number (`-3.2`, `+5`, `-1e-3`) is left as it is, so
-//! numbers stay numbers.
+//! numbers stay numbers. Control characters other than tab and line breaks, and bidirectional
+//! overrides, are written as escapes (`\u{1b}`), as in the log.
 
 use std::borrow::Cow;
 use std::io::Write;
@@ -23,13 +24,37 @@ fn is_plain_number(s: &str) -> bool {
         && s.parse::<f64>().is_ok_and(f64::is_finite)
 }
 
+/// Characters a CSV cell never holds raw: control characters other than tab and line breaks
+/// (an ESC sequence retitles or clears the terminal of whoever `cat`s the file) and
+/// bidirectional overrides (which reorder what a reader sees).
+fn hidden(c: char) -> bool {
+    (c.is_control() && !matches!(c, '\t' | '\n' | '\r'))
+        || matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}')
+}
+
 /// `s` as a CSV cell that a spreadsheet opens as data: a `'` in front of text that begins like a
-/// formula; numbers and everything else unchanged.
+/// formula, and hidden characters shown as escapes (`\u{1b}`, as in the log); numbers and
+/// everything else unchanged.
 pub fn cell(s: &str) -> Cow<'_, str> {
-    if s.starts_with(FORMULA_LEADS) && !is_plain_number(s) {
-        Cow::Owned(format!("'{s}"))
+    let s: Cow<'_, str> = if s.chars().any(hidden) {
+        Cow::Owned(
+            s.chars()
+                .map(|c| {
+                    if hidden(c) {
+                        c.escape_unicode().to_string()
+                    } else {
+                        c.to_string()
+                    }
+                })
+                .collect(),
+        )
     } else {
         Cow::Borrowed(s)
+    };
+    if s.starts_with(FORMULA_LEADS) && !is_plain_number(&s) {
+        Cow::Owned(format!("'{s}"))
+    } else {
+        s
     }
 }
 

@@ -885,3 +885,40 @@ fn demo_program_never_replaces_a_program_made_real_or_a_foreign_folder() {
     let o = demo_at(&fresh);
     assert!(o.status.success(), "{o:?}");
 }
+
+#[test]
+fn control_characters_from_input_never_reach_a_csv_output_raw() {
+    // A terminal escape (ESC ] … BEL retitles the window) and a right-to-left override in a
+    // dropped row: the row's text is quoted in metrics/data-quality.csv, which an
+    // administrator may well `cat`.
+    let t = demo(2);
+    let act = t.dir.join("participants/SG-001/activity.csv");
+    let mut text = std::fs::read_to_string(&act).unwrap();
+    text.push_str("2026-09-05,\u{1b}]0;pwned\u{7}walk\u{202e},10,3\n");
+    std::fs::write(&act, text).unwrap();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        &out(&t),
+    ]);
+    assert_eq!(o.code, 1, "{o:?}");
+    let dq = std::fs::read_to_string(Path::new(&out(&t)).join("metrics/data-quality.csv")).unwrap();
+    assert!(dq.contains("pwned"), "the dropped row is reported: {dq}");
+    assert!(dq.contains("\\u{1b}]0;pwned\\u{7}walk\\u{202e}"), "{dq}");
+    for entry in std::fs::read_dir(Path::new(&out(&t)).join("metrics")).unwrap() {
+        let p = entry.unwrap().path();
+        if p.extension().is_some_and(|e| e == "csv") {
+            let bytes = std::fs::read(&p).unwrap();
+            assert!(
+                !bytes.iter().any(|&b| b == 0x1b || b == 0x07),
+                "{} holds a raw control character",
+                p.display()
+            );
+        }
+    }
+}
