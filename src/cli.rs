@@ -24,6 +24,13 @@ pub enum Command {
         /// The day treated as today: data dated after it are future data (default: today).
         #[arg(long, value_name = "YYYY-MM-DD")]
         as_of: Option<NaiveDate>,
+        /// `text` (a summary by kind, then the details) or `json` (one object per line for
+        /// each diagnostic and each note on how a file was read).
+        #[arg(long, value_enum, default_value = "text")]
+        format: CheckFormat,
+        /// List every diagnostic one by one, and the participants with nothing to report.
+        #[arg(long)]
+        verbose: bool,
     },
     /// Compute every metric and write the reports, tidy metrics and manifest.
     Run(RunArgs),
@@ -55,6 +62,15 @@ pub enum Command {
         #[arg(long)]
         no_defects: bool,
     },
+}
+
+/// Output of `check`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CheckFormat {
+    /// For people.
+    Text,
+    /// For scripts: JSON Lines.
+    Json,
 }
 
 /// `templates` actions.

@@ -9,11 +9,20 @@ use std::process::ExitCode;
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let code = match cli.command {
-        Command::Check { program, as_of } => {
+        Command::Check {
+            program,
+            as_of,
+            format,
+            verbose,
+        } => {
             init_logging(false, LogFormat::Text);
             let as_of = as_of.unwrap_or_else(today);
             let stdout = std::io::stdout();
-            cohortpress::check::run_check(&program, as_of, &mut stdout.lock())
+            let opts = cohortpress::check::CheckOptions {
+                json: format == cohortpress::cli::CheckFormat::Json,
+                verbose,
+            };
+            cohortpress::check::run_check_with(&program, as_of, &opts, &mut stdout.lock())
         }
         Command::Run(args) => {
             init_logging(args.quiet, args.log_format);
