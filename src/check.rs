@@ -245,10 +245,12 @@ pub fn write_report_with(
         }
         if list.len() > KINDS_SHOWN {
             let rest: usize = list[KINDS_SHOWN..].iter().map(|k| k.1.count).sum();
+            let more = list.len() - KINDS_SHOWN;
             writeln!(
                 out,
-                "  … {} more kinds ({rest} diagnostics) in the details below",
-                list.len() - KINDS_SHOWN
+                "  … {more} more kind{} ({rest} diagnostic{}) in the details below",
+                plural(more),
+                plural(rest)
             )?;
         }
     }

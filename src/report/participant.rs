@@ -279,7 +279,11 @@ pub fn build(
     // Adherence.
     let (adherence_view, activity_chart) = match adherence {
         Some(a) => {
-            let (v, c) = adherence_section(a, p.targets.activity_minutes_per_week);
+            let (v, c) = adherence_section(
+                a,
+                p.targets.activity_minutes_per_week,
+                &activity_unread(diags),
+            );
             (Some(v), Some(c))
         }
         None => (None, None),
@@ -382,14 +386,25 @@ pub fn build(
     let data_notes = diags
         .iter()
         .map(|d| {
-            let sev = if d.severity == Severity::Error {
-                "Not used"
-            } else {
-                "Note"
-            };
             let file = d.file.rsplit('/').next().unwrap_or(&d.file);
             let line = d.line.map(|l| format!(", line {l}")).unwrap_or_default();
-            format!("{sev} — {file}{line}: {}", d.message)
+            if d.severity == Severity::Error {
+                // A whole file was left out: say what this report is missing.
+                let missing = match file {
+                    "weights.csv" => "weigh-ins",
+                    "intake.csv" => "food log",
+                    "activity.csv" => "activity log",
+                    "sessions.csv" => "session attendance",
+                    "labs.csv" => "lab results",
+                    _ => "data",
+                };
+                format!(
+                    "Not used — {file}{line}: {}. This report is without your {missing} from that file.",
+                    d.message
+                )
+            } else {
+                format!("Note — {file}{line}: {}", d.message)
+            }
         })
         .collect();
 
@@ -822,7 +837,45 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
     (view, chart)
 }
 
-fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
+/// What could not be read of the activity log: `None` when everything was; otherwise how
+/// many rows were dropped, or that the whole file was not used.
+#[derive(Debug, Clone, PartialEq)]
+enum ActivityUnread {
+    Nothing,
+    Rows(u64),
+    File,
+}
+
+fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
+    let mut rows = 0;
+    for d in diags.iter().filter(|d| d.file.ends_with("/activity.csv")) {
+        if d.severity == Severity::Error {
+            return ActivityUnread::File;
+        }
+        // Dropped rows, not duplicates (which were counted once) or ignored values.
+        if d.message.contains("dropped") && !d.message.contains("duplicate") {
+            // "unknown activity `x` in 12 rows (…)" counts its rows; other messages are one row.
+            let n = d
+                .message
+                .split_once("` in ")
+                .and_then(|(_, rest)| rest.split(' ').next())
+                .and_then(|n| n.parse::<u64>().ok())
+                .unwrap_or(1);
+            rows += n;
+        }
+    }
+    if rows == 0 {
+        ActivityUnread::Nothing
+    } else {
+        ActivityUnread::Rows(rows)
+    }
+}
+
+fn adherence_section(
+    a: &ModuleOutput,
+    target: f64,
+    unread: &ActivityUnread,
+) -> (AdherenceView, Chart) {
     let mut items = Vec::new();
     let f1 = |n: &str| a.scalar(n).map(|v| fmt::fixed(v, 1));
     if let Some(v) = f1("weigh_ins_per_week") {
@@ -832,9 +885,30 @@ fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
         items.push(Kv::new("Days with a food log per week", &v));
     }
     if let Some(v) = a.scalar("activity_minutes_per_week") {
+        // Never "0 minutes" when the log could not be read: say so instead.
+        let text = match unread {
+            ActivityUnread::File => {
+                "activity could not be read (activity.csv was not used; see the notes on your data)"
+                    .to_string()
+            }
+            ActivityUnread::Rows(n) if v == 0.0 => format!(
+                "activity could not be read ({n} row{} left out; see the notes on your data)",
+                if *n == 1 { "" } else { "s" }
+            ),
+            ActivityUnread::Rows(n) => format!(
+                "{} (target {}); {n} activity row{} could not be read and {} not counted",
+                fmt::fixed(v, 0),
+                fmt::fixed(target, 0),
+                if *n == 1 { "" } else { "s" },
+                if *n == 1 { "is" } else { "are" }
+            ),
+            ActivityUnread::Nothing => {
+                format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0))
+            }
+        };
         items.push(Kv::new(
             "Activity minutes per week (moderate-equivalent)",
-            &format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0)),
+            &text,
         ));
     }
     if let (Some(att), Some(off)) = (
