@@ -375,7 +375,8 @@ pub fn normalise(label: &str) -> String {
     let chars: Vec<char> = lower.chars().collect();
     let mut out = String::with_capacity(lower.len());
     for (i, &c) in chars.iter().enumerate() {
-        let decimal_point = matches!(c, '.' | ',')
+        // `3.5`, `3,5`, and our codes' `3_5` are decimal numbers.
+        let decimal_point = matches!(c, '.' | ',' | '_')
             && i > 0
             && chars[i - 1].is_ascii_digit()
             && chars.get(i + 1).is_some_and(|n| n.is_ascii_digit());
@@ -384,13 +385,13 @@ pub fn normalise(label: &str) -> String {
             if let Some(&p) = chars.get(i.wrapping_sub(1))
                 && i > 0
                 && (p.is_ascii_digit() != c.is_ascii_digit())
-                && !matches!(c, '.' | ',')
-                && !matches!(p, '.' | ',')
+                && !matches!(c, '.' | ',' | '_')
+                && !matches!(p, '.' | ',' | '_')
                 && !out.ends_with(' ')
             {
                 out.push(' ');
             }
-            out.push(if c == ',' { '.' } else { c });
+            out.push(if matches!(c, ',' | '_') { '.' } else { c });
         } else if !out.is_empty() && !out.ends_with(' ') {
             out.push(' ');
         }
@@ -761,6 +762,7 @@ mod tests {
             ("Walking 3.5 mph", "walking_brisk_3_5mph"),
             ("walking, 3.5mph", "walking_brisk_3_5mph"),
             ("WALKING-3MPH", "walking_3mph"),
+            ("Walking-Brisk-3_5mph", "walking_brisk_3_5mph"),
             // 5 km/h = 3.11 mph (1 mile = 1.609344 km): the 2.8–3.2 mph entry.
             ("walk 5 km/h", "walking_3mph"),
             ("Walking (6,5 kph)", "walking_very_brisk_4mph"),

@@ -2,6 +2,7 @@
 //! `cohortpress` binary on fixture programs (see `harness.rs`).
 
 mod check;
+mod exports;
 mod external;
 mod harness;
 mod hostile;
