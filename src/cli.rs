@@ -48,6 +48,12 @@ pub enum Command {
         #[command(subcommand)]
         action: TemplatesAction,
     },
+    /// Import participant data from other formats.
+    Import {
+        /// The format to import.
+        #[command(subcommand)]
+        format: ImportFormat,
+    },
     /// Generate a fictional demo program (for trying the tool and for benchmarks).
     DemoProgram {
         /// Folder to write (must be empty, absent, or a previous demo program).
@@ -61,6 +67,26 @@ pub enum Command {
         /// Leave out the planted input defects.
         #[arg(long)]
         no_defects: bool,
+    },
+}
+
+/// `import` formats.
+#[derive(Debug, Subcommand)]
+pub enum ImportFormat {
+    /// HL7 FHIR R4 Patient and Observation resources (Bulk Data NDJSON, Bundle or single
+    /// resources in JSON): body weight, height, waist, HbA1c, fasting glucose, blood pressure.
+    Fhir {
+        /// FHIR files to read.
+        #[arg(required = true)]
+        files: Vec<PathBuf>,
+        /// The program folder to write participant folders into (existing participant
+        /// folders are never changed).
+        #[arg(long, value_name = "PROGRAM")]
+        out: PathBuf,
+        /// CSV file with columns `fhir_id,participant_id` mapping FHIR patient ids to
+        /// participant ids (patients not listed are left out).
+        #[arg(long, value_name = "MAP.csv")]
+        ids: Option<PathBuf>,
     },
 }
 

@@ -64,6 +64,9 @@ fn dispatch(cli: Cli) -> i32 {
             init_logging(args.quiet, args.log_format);
             cohortpress::shard::merge_command(&args)
         }
+        Command::Import {
+            format: cohortpress::cli::ImportFormat::Fhir { files, out, ids },
+        } => cohortpress::import::fhir::import_command(&files, &out, ids.as_deref()),
         Command::Modules { program } => cohortpress::runner::modules_command(program.as_deref()),
         Command::Templates {
             action: TemplatesAction::Dump { dir },
