@@ -4,6 +4,7 @@
 mod check;
 mod exports;
 mod external;
+mod fhir;
 mod harness;
 mod hostile;
 mod operation;
