@@ -103,7 +103,7 @@ fn effective(obs: &Value) -> Option<(NaiveDate, Option<String>)> {
         .or_else(|| obs["effectiveInstant"].as_str())
         .or_else(|| obs["effectivePeriod"]["start"].as_str())?;
     let opts = crate::participant::table::CsvOptions::default();
-    let w = crate::participant::table::parse_when(s, &opts).ok()?;
+    let w = crate::participant::table::parse_when(s, &opts)?;
     Some((w.date, w.time.map(|t| t.format("%H:%M").to_string())))
 }
 
@@ -654,7 +654,7 @@ mod tests {
         let map = tmp.path().join("ids.csv");
         std::fs::write(&map, "fhir_id,participant_id\np-1,NV-007\n").unwrap();
         let out = tmp.path().join("prog");
-        let s = import(&[nd.clone()], &out, Some(&map)).unwrap();
+        let s = import(std::slice::from_ref(&nd), &out, Some(&map)).unwrap();
         assert!(
             s.starts_with("imported 1 participant (2 observations; 0 skipped)"),
             "{s}"
@@ -666,7 +666,7 @@ mod tests {
         );
         // A second import never touches the existing folder.
         let before = std::fs::read_to_string(dir.join("weights.csv")).unwrap();
-        let e = import(&[nd.clone()], &out, Some(&map)).unwrap_err();
+        let e = import(std::slice::from_ref(&nd), &out, Some(&map)).unwrap_err();
         assert_eq!(e.0, exit_code::OUTPUT_FAILED);
         assert_eq!(
             std::fs::read_to_string(dir.join("weights.csv")).unwrap(),

@@ -672,7 +672,7 @@ fn read_records(
     if !missing.is_empty() {
         let looks_like_data = names
             .first()
-            .is_some_and(|f| parse_when(f, opts).is_ok() || parse_decimal(f).is_ok());
+            .is_some_and(|f| parse_when(f, opts).is_some() || parse_decimal(f).is_ok());
         let hint = if looks_like_data {
             format!(
                 "the first row looks like data; add a header row naming the columns, e.g. `{}`",
@@ -871,13 +871,13 @@ const ISO_OFFSET: [&str; 4] = [
 /// the day it was written (the offset is the measuring device's local one); a UTC time (`Z`,
 /// `+00:00`) is converted to `input.time_zone` when set (and otherwise kept on its UTC day); a
 /// time without an offset is local time already.
-pub fn parse_when(s: &str, opts: &CsvOptions) -> Result<When, ()> {
+pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
     let s = s.trim();
     let format = opts.date_format.as_str();
     if format == "%Y-%m-%d"
         && let Some(d) = iso_date(s)
     {
-        return Ok(When {
+        return Some(When {
             date: d,
             time: None,
             from_utc: false,
@@ -910,13 +910,13 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Result<When, ()> {
         || format.contains("%R");
     if has_time {
         if let Ok(t) = DateTime::parse_from_str(with_offset, format) {
-            return Ok(stamped(t));
+            return Some(stamped(t));
         }
         if let Ok(dt) = NaiveDateTime::parse_from_str(s, format) {
-            return Ok(local(dt));
+            return Some(local(dt));
         }
     } else if let Ok(d) = NaiveDate::parse_from_str(s, format) {
-        return Ok(When {
+        return Some(When {
             date: d,
             time: None,
             from_utc: false,
@@ -925,7 +925,7 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Result<When, ()> {
     // ISO 8601, whatever the program's format.
     if s.len() >= 10 && s.as_bytes()[4] == b'-' {
         if let Some(d) = iso_date(s) {
-            return Ok(When {
+            return Some(When {
                 date: d,
                 time: None,
                 from_utc: false,
@@ -933,16 +933,16 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Result<When, ()> {
         }
         for f in ISO_OFFSET {
             if let Ok(t) = DateTime::parse_from_str(with_offset, f) {
-                return Ok(stamped(t));
+                return Some(stamped(t));
             }
         }
         for f in ISO_NAIVE {
             if let Ok(dt) = NaiveDateTime::parse_from_str(s, f) {
-                return Ok(local(dt));
+                return Some(local(dt));
             }
         }
     }
-    Err(())
+    None
 }
 
 /// `NaiveDate::parse_from_str(s, format)`, with the common ISO form `YYYY-MM-DD` read directly
@@ -1028,7 +1028,7 @@ impl Cells<'_> {
             return self.required_text(col, diags).and(None);
         };
         match parse_when(s, self.opts) {
-            Ok(w) => {
+            Some(w) => {
                 if w.time.is_some() {
                     self.table.timestamps.set(true);
                 }
@@ -1037,7 +1037,7 @@ impl Cells<'_> {
                 }
                 Some(w)
             }
-            Err(()) => {
+            None => {
                 let probe = NaiveDate::from_ymd_opt(2026, 4, 1)
                     .expect("valid")
                     .and_hms_opt(7, 30, 0)
@@ -1344,7 +1344,7 @@ mod tests {
         let day = |s: &str, o: &CsvOptions| {
             parse_when(s, o).map(|w| (w.date.to_string(), w.time.map(|t| t.to_string())))
         };
-        let some = |d: &str, t: &str| Ok((d.to_string(), Some(t.to_string())));
+        let some = |d: &str, t: &str| Some((d.to_string(), Some(t.to_string())));
         assert_eq!(
             day("2027-03-01T07:12:00Z", &opts),
             some("2027-03-01", "07:12:00")
@@ -1361,7 +1361,7 @@ mod tests {
             day("2027-03-01T23:30:00.250+0100", &opts),
             some("2027-03-01", "23:30:00.250")
         );
-        assert_eq!(day("2027-03-01", &opts), Ok(("2027-03-01".into(), None)));
+        assert_eq!(day("2027-03-01", &opts), Some(("2027-03-01".into(), None)));
         // UTC times are converted to the participants' zone (DST applies: 2027-07-01 is
         // UTC−4 in New York; 2027-01-15 is UTC−5).
         let ny = CsvOptions {
@@ -1398,7 +1398,7 @@ mod tests {
             day("03/01/2027 07:12 PM", &us),
             some("2027-03-01", "19:12:00")
         );
-        assert!(parse_when("2027-02-30T07:00:00Z", &opts).is_err());
+        assert!(parse_when("2027-02-30T07:00:00Z", &opts).is_none());
         assert!(LocalZone::parse("Mars/Olympus").is_none());
     }
 
