@@ -291,6 +291,46 @@ fn check_not_inputs(out: &Path, target: &OutputTarget) -> Result<(), StagingErro
     }
 }
 
+/// Refuses to replace an existing output folder that is not ours, or a complete output with a
+/// partial one.
+fn check_replaceable(out_dir: &Path, target: &OutputTarget) -> Result<(), StagingError> {
+    match fs::symlink_metadata(out_dir) {
+        Err(_) => {}
+        Ok(meta) if !meta.is_dir() => {
+            return Err(StagingError::Refused(format!(
+                "refusing to write the output to {} ({}): it is a file, not a folder",
+                out_dir.display(),
+                target.named_by
+            )));
+        }
+        Ok(_) => match existing_output(out_dir) {
+            Ok(Existing::Empty) => {}
+            Ok(Existing::Ours(OutputScope::Complete)) if target.scope != OutputScope::Complete => {
+                return Err(StagingError::Refused(format!(
+                    "refusing to replace the complete output in {} with a partial one \
+                         ({}); give the partial run a folder of its own with --out DIR",
+                    out_dir.display(),
+                    match target.scope {
+                        OutputScope::Only => "--only",
+                        _ => "--shard",
+                    }
+                )));
+            }
+            Ok(Existing::Ours(_)) => {}
+            Err(found) => {
+                return Err(StagingError::Refused(format!(
+                    "refusing to write the output to {} ({}): {found}. A run replaces its \
+                         output folder as a whole, so it only writes to a new folder, an empty \
+                         one, or one a previous run wrote; check the path, or name a new folder",
+                    out_dir.display(),
+                    target.named_by
+                )));
+            }
+        },
+    }
+    Ok(())
+}
+
 impl Staging {
     /// Takes the lock for the target's output folder (links resolved), checks the folder may
     /// be replaced by this run, and prepares an empty staging folder beside it.
@@ -311,6 +351,12 @@ impl Staging {
             .parent()
             .map(Path::to_path_buf)
             .unwrap_or_else(|| PathBuf::from("/"));
+        // Refuse before the lock file is created, so a refused run leaves no trace; checked again
+        // under the lock below, after any recovery.
+        let previous = parent.join(format!(".{name}.previous"));
+        if fs::symlink_metadata(&out_dir).is_ok() || fs::symlink_metadata(&previous).is_err() {
+            check_replaceable(&out_dir, target)?;
+        }
         let lock_path = parent.join(format!(".{name}.lock"));
         let lock = File::options()
             .create(true)
@@ -330,7 +376,6 @@ impl Staging {
             Err(fs::TryLockError::Error(e)) => return Err(io(&lock_path)(e)),
         }
         let dir = parent.join(format!(".{name}.staging"));
-        let previous = parent.join(format!(".{name}.previous"));
         // A run killed between the two renames of a commit left the complete previous output
         // here: put it back before anything else. A previous copy beside a complete output is
         // a removal that failed (a read-only folder, say): finish it.
@@ -347,42 +392,7 @@ impl Staging {
                 )));
             }
         }
-        match fs::symlink_metadata(&out_dir) {
-            Err(_) => {}
-            Ok(meta) if !meta.is_dir() => {
-                return Err(StagingError::Refused(format!(
-                    "refusing to write the output to {} ({}): it is a file, not a folder",
-                    out_dir.display(),
-                    target.named_by
-                )));
-            }
-            Ok(_) => match existing_output(&out_dir) {
-                Ok(Existing::Empty) => {}
-                Ok(Existing::Ours(OutputScope::Complete))
-                    if target.scope != OutputScope::Complete =>
-                {
-                    return Err(StagingError::Refused(format!(
-                        "refusing to replace the complete output in {} with a partial one \
-                         ({}); give the partial run a folder of its own with --out DIR",
-                        out_dir.display(),
-                        match target.scope {
-                            OutputScope::Only => "--only",
-                            _ => "--shard",
-                        }
-                    )));
-                }
-                Ok(Existing::Ours(_)) => {}
-                Err(found) => {
-                    return Err(StagingError::Refused(format!(
-                        "refusing to write the output to {} ({}): {found}. A run replaces its \
-                         output folder as a whole, so it only writes to a new folder, an empty \
-                         one, or one a previous run wrote; check the path, or name a new folder",
-                        out_dir.display(),
-                        target.named_by
-                    )));
-                }
-            },
-        }
+        check_replaceable(&out_dir, target)?;
         // Staging left by a killed run: we hold the lock, so nobody else is using it.
         if fs::symlink_metadata(&dir).is_ok() {
             let ours = fs::symlink_metadata(dir.join(STAGING_MARKER)).is_ok_and(|m| m.is_file());

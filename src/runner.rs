@@ -528,7 +528,9 @@ pub fn select_participants(
         return Err(RunError::Refused {
             message: format!(
                 "{}; the previous output was left as it is",
-                d.to_string().replace('\n', " |")
+                d.to_string()
+                    .trim_start_matches("error: ")
+                    .replace('\n', " |")
             ),
             code: exit_code::PROGRAM_INVALID,
         });

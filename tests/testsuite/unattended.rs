@@ -74,6 +74,8 @@ fn a_foreign_out_folder_survives_and_the_run_says_what_to_do() {
     assert!(o.stderr.contains("name a new folder"), "{}", o.stderr);
     assert_eq!(tree_hashes(&mine), before);
     no_leftovers(mine.parent().unwrap(), "documents");
+    // A refused run leaves no trace beside the folder either.
+    assert!(!beside(&t, ".documents.lock").exists());
     // merge is refused the same way.
     let shard = beside(&t, "shard-1");
     let o = run_to(&t, &shard, &["--shard", "1/1"]);
