@@ -986,3 +986,65 @@ fn adherence_section(
         chart,
     )
 }
+
+#[cfg(test)]
+mod activity_unread_tests {
+    use super::*;
+    use cohortpress_metric_api::Scalar;
+
+    fn adherence(minutes: f64) -> ModuleOutput {
+        ModuleOutput {
+            scalars: vec![Scalar {
+                name: "activity_minutes_per_week".into(),
+                value: Some(minutes),
+                unit: "min".into(),
+                lower: None,
+                upper: None,
+                label: "Activity minutes per week".into(),
+            }],
+            ..Default::default()
+        }
+    }
+
+    fn shown(minutes: f64, diags: &[Diagnostic]) -> String {
+        let (view, _) = adherence_section(&adherence(minutes), 150.0, &activity_unread(diags));
+        view.items
+            .iter()
+            .find(|k| k.label.starts_with("Activity minutes"))
+            .unwrap()
+            .value
+            .clone()
+    }
+
+    #[test]
+    fn dropped_activity_rows_are_not_shown_as_zero_minutes() {
+        let file = "participants/P1/activity.csv";
+        let unknown = Diagnostic::warning(
+            file,
+            "unknown activity `zumba gold` in 104 rows (first at line 2); without a MET value the rows are dropped",
+        );
+        assert_eq!(
+            shown(0.0, std::slice::from_ref(&unknown)),
+            "activity could not be read (104 rows left out; see the notes on your data)"
+        );
+        assert_eq!(
+            shown(90.0, &[unknown]),
+            "90 (target 150); 104 activity rows could not be read and are not counted"
+        );
+        let lost = Diagnostic::error(file, "no header row: missing required columns");
+        assert!(
+            shown(0.0, &[lost])
+                .starts_with("activity could not be read (activity.csv was not used")
+        );
+        // Duplicates and other files do not count; a clean log shows its minutes.
+        let dup = Diagnostic::warning(
+            file,
+            "identical to line 3 in every column, time included; the row is dropped as a duplicate",
+        );
+        let other = Diagnostic::warning(
+            "participants/P1/weights.csv",
+            "implausible weight; the row is dropped",
+        );
+        assert_eq!(shown(0.0, &[dup, other]), "0 (target 150)");
+    }
+}
