@@ -488,6 +488,35 @@ modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
     }
 
     #[test]
+    fn input_and_activities_keys_are_checked() {
+        let good = format!(
+            "{GOOD}input:\n  time_zone: Europe/Berlin\n  columns:\n    weights: {{ \"Body Weight\": weight }}\nactivities:\n  \"Zumba Gold\": {{ met: 5.5 }}\n  \"Lunch walk\": {{ compendium: \"17190\" }}\n"
+        );
+        let p = parse_program(root(), &good).unwrap();
+        assert_eq!(p.def.input.time_zone.as_deref(), Some("Europe/Berlin"));
+        assert_eq!(p.def.activities.len(), 2);
+        let bad = format!(
+            "{GOOD}input:\n  time_zone: Mars/Olympus\n  columns:\n    weights: {{ \"Body Weight\": mass }}\n    meals: {{ a: kcal }}\nactivities:\n  zumba: {{ met: 50 }}\n  walk: {{ compendium: \"99999\" }}\n  both: {{ met: 3, compendium: \"17190\" }}\n"
+        );
+        let e = parse_program(root(), &bad).unwrap_err();
+        let messages: Vec<&str> = e.iter().map(|d| d.message.as_str()).collect();
+        assert_eq!(e.len(), 6, "{messages:#?}");
+        for words in [
+            "unknown time zone",
+            "`Body Weight` is mapped to `mass`, which is not a column of weights.csv",
+            "unknown file kind `meals`",
+            "MET value out of range",
+            "Compendium code `99999` is not in the tool's activity table",
+            "give either `compendium` or `met`",
+        ] {
+            assert!(
+                messages.iter().any(|m| m.contains(words)),
+                "{words}: {messages:#?}"
+            );
+        }
+    }
+
+    #[test]
     fn targets_apply_over_defaults() {
         let text = format!("{GOOD}targets:\n  weight_change_percent: -7\n");
         let p = parse_program(root(), &text).unwrap();
@@ -578,6 +607,10 @@ input:
 
     #[test]
     fn date_formats_are_checked_by_round_trip() {
+        // Times and offsets are allowed; a 12-hour clock needs its AM/PM.
+        assert!(check_date_format("%Y-%m-%d %H:%M").is_ok());
+        assert!(check_date_format("%d.%m.%Y %H:%M:%S %z").is_ok());
+        assert!(check_date_format("%m/%d/%Y %I:%M %p").is_ok());
         assert!(check_date_format("%Y-%m-%d").is_ok());
         assert!(check_date_format("%d/%m/%Y").is_ok());
         assert!(check_date_format("%m/%d/%Y").is_ok());
