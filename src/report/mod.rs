@@ -7,7 +7,9 @@
 //! units, so an HTML report and its PDF never disagree.
 
 pub mod cautions;
+pub mod followup;
 pub mod format;
+pub mod guidance;
 pub mod group;
 pub mod participant;
 pub mod pdf;
