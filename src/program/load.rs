@@ -195,8 +195,18 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
     }
     let g = &def.guidance;
     for (key, v, lo, hi) in [
-        ("guidance.loss_bmi_at_least", g.loss_bmi_at_least, 18.5, 40.0),
-        ("guidance.underweight_bmi_below", g.underweight_bmi_below, 15.0, 25.0),
+        (
+            "guidance.loss_bmi_at_least",
+            g.loss_bmi_at_least,
+            18.5,
+            40.0,
+        ),
+        (
+            "guidance.underweight_bmi_below",
+            g.underweight_bmi_below,
+            15.0,
+            25.0,
+        ),
         (
             "guidance.max_loss_percent_per_week",
             g.max_loss_percent_per_week,
@@ -480,16 +490,17 @@ report:
 
     #[test]
     fn followup_and_guidance_settings_are_checked_with_their_line() {
-        let ok = format!("{GOOD}followup:\n  recipient: Program nurse\nguidance:\n  min_walk_minutes: 15\n");
+        let ok = format!(
+            "{GOOD}followup:\n  recipient: Program nurse\nguidance:\n  min_walk_minutes: 15\n"
+        );
         let p = parse_program(root(), &ok).unwrap();
         assert_eq!(
             p.def.followup.as_ref().map(|f| f.recipient.as_str()),
             Some("Program nurse")
         );
         assert_eq!(p.def.guidance.min_walk_minutes, Some(15.0));
-        let bad = format!(
-            "{GOOD}followup:\n  recipient: '  '\nguidance:\n  loss_bmi_at_least: 60\n"
-        );
+        let bad =
+            format!("{GOOD}followup:\n  recipient: '  '\nguidance:\n  loss_bmi_at_least: 60\n");
         let e = parse_program(root(), &bad).unwrap_err();
         let good_lines = GOOD.lines().count() as u64;
         let by = |f: &str| e.iter().find(|d| d.field.as_deref() == Some(f)).unwrap();

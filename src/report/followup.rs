@@ -58,6 +58,9 @@ pub struct FollowupRecord {
     pub logged_intake_kcal_per_day: Option<f64>,
     /// Date of the last weigh-in up to the period's end (ISO).
     pub last_weigh_in: Option<String>,
+    /// Date the participant left the program, if on or before the period's end (ISO).
+    #[serde(default)]
+    pub left_program: Option<String>,
     /// The clinical flags.
     pub items: Vec<FollowupItem>,
 }
@@ -65,11 +68,15 @@ pub struct FollowupRecord {
 /// The reason a flag is on the list, in plain words.
 pub fn reason(code: &str) -> &'static str {
     match code {
-        "fast_loss" => "Weight coming down faster than about 1 kg (2 lb) a week for three weeks or more",
+        "fast_loss" => {
+            "Weight coming down faster than about 1 kg (2 lb) a week for three weeks or more"
+        }
         "very_low_intake" => "Logged intake very low (below about 800 kcal a day on average)",
         "low_intake" => "Logged intake below the usual floor for eating less without supervision",
         "low_bmi" => "BMI below 18.5 (WHO underweight range)",
-        "lab_diabetes_range" => "Latest glucose or HbA1c in the diabetes range (ADA Standards of Care)",
+        "lab_diabetes_range" => {
+            "Latest glucose or HbA1c in the diabetes range (ADA Standards of Care)"
+        }
         "medication_review" => {
             "Takes a glucose-lowering medicine while losing fast or eating little: the dose may need review"
         }
@@ -195,6 +202,11 @@ pub fn for_participant(
             .rev()
             .find(|w| w.date <= plan.period.to)
             .map(|w| w.date.to_string()),
+        left_program: data
+            .profile
+            .withdrew
+            .filter(|w| *w <= plan.period.to)
+            .map(|w| w.to_string()),
         items,
     })
 }
@@ -240,6 +252,11 @@ fn values(r: &FollowupRecord, plan: &RunPlan) -> String {
         && let Ok(d) = NaiveDate::parse_from_str(d, "%Y-%m-%d")
     {
         v.push(format!("last weigh-in {}", fmt::date(d)));
+    }
+    if let Some(d) = &r.left_program
+        && let Ok(d) = NaiveDate::parse_from_str(d, "%Y-%m-%d")
+    {
+        v.push(format!("left the program {}", fmt::date(d)));
     }
     v.join("; ")
 }
@@ -328,6 +345,7 @@ pub fn csv(plan: &RunPlan, records: &[FollowupRecord]) -> Result<Vec<u8>, Render
         "rate_kg_per_week",
         "logged_intake_kcal_per_day",
         "last_weigh_in",
+        "left_program",
         "details",
     ])
     .map_err(io)?;
@@ -349,6 +367,7 @@ pub fn csv(plan: &RunPlan, records: &[FollowupRecord]) -> Result<Vec<u8>, Render
                 &n(r.rate_kg_per_week, 2),
                 &n(r.logged_intake_kcal_per_day, 0),
                 r.last_weigh_in.as_deref().unwrap_or(""),
+                r.left_program.as_deref().unwrap_or(""),
                 &it.details,
             ])
             .map_err(io)?;

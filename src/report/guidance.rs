@@ -134,9 +134,7 @@ impl Thresholds {
                 .max_loss_percent_per_week
                 .unwrap_or(d.max_loss_percent_per_week),
             target_loss_kg_per_week: e("target_loss_kg_per_week", d.target_loss_kg_per_week),
-            min_intake_change_kcal: g
-                .min_intake_change_kcal
-                .unwrap_or(d.min_intake_change_kcal),
+            min_intake_change_kcal: g.min_intake_change_kcal.unwrap_or(d.min_intake_change_kcal),
             min_walk_minutes: g.min_walk_minutes.unwrap_or(d.min_walk_minutes),
             max_walk_minutes: g.max_walk_minutes.unwrap_or(d.max_walk_minutes),
         }
@@ -590,11 +588,15 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             });
         }
         if g.options.len() == 1 {
-            g.options_intro =
-                "By the energy-balance model, this would about stop the rise:".into();
+            g.options_intro = "By the energy-balance model, this would about stop the rise:".into();
         }
         g.options_note = format!(
-            "These amounts aim to hold your weight where it is, not to bring it down. Even at the careful end of the estimate, eating this much less keeps your intake at or above {} a day.",
+            "{} to hold your weight where it is, not to bring it down. Even at the careful end of the estimate, eating this much less keeps your intake at or above {} a day.",
+            if g.options.len() == 1 {
+                "This amount aims"
+            } else {
+                "These amounts aim"
+            },
             fmt::kcal(floor)
         );
     } else if cut >= t.min_intake_change_kcal {
@@ -608,7 +610,9 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         );
     }
     let loss_goal = state.target_percent < 0.0
-        && state.change_percent.is_none_or(|c| c > state.target_percent)
+        && state
+            .change_percent
+            .is_none_or(|c| c > state.target_percent)
         && state.bmi.is_some_and(|b| b >= t.loss_bmi_at_least);
     if loss_goal {
         g.closing.push(
@@ -736,7 +740,8 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     let rate_fast = target + (slope.value - slope.lower.unwrap_or(slope.value)).max(0.0);
     if need < t.min_intake_change_kcal {
         g.paragraphs.push(
-            "Your weight trend is already close to a steady loss; small, steady habits are enough.".into(),
+            "Your weight trend is already close to a steady loss; small, steady habits are enough."
+                .into(),
         );
         return g;
     }
@@ -827,8 +832,16 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     );
     let mut note = format!(
         "{} from the same energy-balance model as the figures above. {} your intake at or above {} a day and your loss under {}, even at the careful end of the estimate.",
-        if g.options.len() == 1 { "This comes" } else { "These come" },
-        if g.options.len() == 1 { "It keeps" } else { "Each one keeps" },
+        if g.options.len() == 1 {
+            "This comes"
+        } else {
+            "These come"
+        },
+        if g.options.len() == 1 {
+            "It keeps"
+        } else {
+            "Each one keeps"
+        },
         fmt::kcal(floor),
         rate_words(max, f.units)
     );
@@ -845,6 +858,7 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
 
 #[cfg(test)]
 mod tests {
+    use super::TrendStatus::*;
     use super::*;
 
     fn st(status: TrendStatus) -> State {
@@ -862,7 +876,6 @@ mod tests {
     #[test]
     fn decision_table() {
         use MaintainWhy::*;
-        use TrendStatus::*;
         let t = Thresholds::default();
         let with = |f: &dyn Fn(&mut State), status| {
             let mut s = st(status);
@@ -1040,7 +1053,10 @@ mod tests {
         for o in &g.options {
             assert!(o.intake_at_lower_bound.unwrap() >= 1200.0, "{o:?}");
         }
-        assert!(g.options_note.contains("Eating less alone is not suggested"));
+        assert!(
+            g.options_note
+                .contains("Eating less alone is not suggested")
+        );
     }
 
     #[test]
@@ -1079,7 +1095,11 @@ mod tests {
             lower: Some(-100.0),
             upper: Some(220.0),
         });
-        assert!(compose(Phase::Regain, &st(Regaining), &t, &f).options.is_empty());
+        assert!(
+            compose(Phase::Regain, &st(Regaining), &t, &f)
+                .options
+                .is_empty()
+        );
         // Near the floor at the lower bound: no eat-less option.
         f.balance = Some(Est {
             value: 700.0,

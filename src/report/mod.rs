@@ -9,8 +9,8 @@
 pub mod cautions;
 pub mod followup;
 pub mod format;
-pub mod guidance;
 pub mod group;
+pub mod guidance;
 pub mod participant;
 pub mod pdf;
 pub mod templates;

@@ -224,7 +224,7 @@ pub fn followup(c: &super::followup::FollowupContext) -> Result<Vec<u8>, RenderE
             "No participant has a clinical flag this period.".into(),
         ));
     } else {
-        b.push(table(&c.table, vec![1.1, 1.3, 1.0, 2.2, 2.6, 1.4, 3.4]));
+        b.push(table(&c.table, vec![1.4, 1.5, 1.6, 2.1, 2.4, 1.3, 3.2]));
     }
     let doc = Document {
         title: format!("Clinician follow-up list · {}", c.program.period_label),

@@ -27,8 +27,14 @@ struct Sample {
 fn sample() -> Sample {
     use cohortpress::cli::{Cli, Command};
     let root = repo_root().join("sample-program");
-    let cli = Cli::try_parse_from(["cohortpress", "run", root.to_str().unwrap(), "--as-of", AS_OF])
-        .unwrap();
+    let cli = Cli::try_parse_from([
+        "cohortpress",
+        "run",
+        root.to_str().unwrap(),
+        "--as-of",
+        AS_OF,
+    ])
+    .unwrap();
     let Command::Run(args) = cli.command else {
         panic!("not a run command")
     };
@@ -106,7 +112,11 @@ fn every_sample_participants_options_follow_the_rules() {
             .iter()
             .any(|c| guidance::HOLDING_FLAGS.contains(&c.as_str()))
         {
-            assert!(g.options.is_empty(), "{id}: options despite {:?}", state.clinical_flags);
+            assert!(
+                g.options.is_empty(),
+                "{id}: options despite {:?}",
+                state.clinical_flags
+            );
         }
         if !matches!(phase, Phase::RestartLoss | Phase::Regain) {
             assert!(g.options.is_empty(), "{id}: options in phase {phase:?}");
@@ -114,7 +124,10 @@ fn every_sample_participants_options_follow_the_rules() {
         for o in &g.options {
             offered += 1;
             // No zero or token amounts.
-            assert!(o.intake_cut_kcal > 0.0 || o.walk_minutes > 0.0, "{id}: {o:?}");
+            assert!(
+                o.intake_cut_kcal > 0.0 || o.walk_minutes > 0.0,
+                "{id}: {o:?}"
+            );
             assert!(
                 o.intake_cut_kcal == 0.0 || o.intake_cut_kcal >= t.min_intake_change_kcal,
                 "{id}: {o:?}"
@@ -125,7 +138,10 @@ fn every_sample_participants_options_follow_the_rules() {
                         && o.walk_minutes <= t.max_walk_minutes),
                 "{id}: {o:?}"
             );
-            assert!(!o.text.contains(" 0 kcal") && !o.text.contains(" 0 minutes"), "{id}");
+            assert!(
+                !o.text.contains(" 0 kcal") && !o.text.contains(" 0 minutes"),
+                "{id}"
+            );
             // The floor holds at the lower bound of the implied intake.
             if let Some(l) = o.intake_at_lower_bound {
                 assert!(l >= g.floor_kcal, "{id}: {l} below {}: {o:?}", g.floor_kcal);
@@ -140,11 +156,18 @@ fn every_sample_participants_options_follow_the_rules() {
         }
         // One number format on the page: no "1020 kcal" next to "1,020 kcal".
         let json = serde_json::to_string(ctx).unwrap();
-        assert!(!has_ungrouped_kcal(&json), "{id}: ungrouped kcal in the report");
+        assert!(
+            !has_ungrouped_kcal(&json),
+            "{id}: ungrouped kcal in the report"
+        );
         // Person-first BMI wording; no bare class label about the reader.
         for kv in &ctx.summary {
             if kv.label == "BMI" {
-                assert!(kv.value.contains("your BMI is in the range"), "{id}: {}", kv.value);
+                assert!(
+                    kv.value.contains("your BMI is in the range"),
+                    "{id}: {}",
+                    kv.value
+                );
             }
         }
         // A page never says the options respect the floors next to one that does not.
@@ -155,7 +178,10 @@ fn every_sample_participants_options_follow_the_rules() {
     // The sample covers the table: people past target or under BMI 25 are in maintenance,
     // some restart a loss with options, some have left, some are for a clinician first.
     for code in ["maintain", "restart_loss", "withdrawn", "clinician"] {
-        assert!(phases.contains_key(code), "no participant in {code}: {phases:?}");
+        assert!(
+            phases.contains_key(code),
+            "no participant in {code}: {phases:?}"
+        );
     }
     assert!(offered > 0, "no option offered at all: {phases:?}");
     // The participants the report once pushed to lose more (past target, healthy BMI) now get
@@ -170,7 +196,9 @@ fn every_sample_participants_options_follow_the_rules() {
 #[test]
 fn has_ungrouped_kcal_sees_only_bare_thousands() {
     assert!(has_ungrouped_kcal("about 1020 kcal a day"));
-    assert!(!has_ungrouped_kcal("about 1,020 kcal a day (Archer et al. 2013)"));
+    assert!(!has_ungrouped_kcal(
+        "about 1,020 kcal a day (Archer et al. 2013)"
+    ));
     assert!(!has_ungrouped_kcal("about 950 kcal"));
 }
 
@@ -208,7 +236,10 @@ fn followup_list_holds_exactly_the_flagged_participants_and_stays_private() {
             flagged.insert(id.clone(), state.clinical_flags.iter().cloned().collect());
         }
     }
-    assert!(!flagged.is_empty(), "the sample has clinically flagged participants");
+    assert!(
+        !flagged.is_empty(),
+        "the sample has clinically flagged participants"
+    );
     let mut r = csv::Reader::from_path(folder.join("followup.csv")).unwrap();
     let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
     let col = |n: &str| header.iter().position(|h| h == n).unwrap();
@@ -266,7 +297,10 @@ fn followup_list_holds_exactly_the_flagged_participants_and_stays_private() {
     let html = std::fs::read_to_string(folder.join("followup.html")).unwrap();
     assert!(html.contains("Program nurse, Kiln Row"));
     for id in listed.keys() {
-        assert!(html.contains(id.as_str()), "{id} missing from the HTML list");
+        assert!(
+            html.contains(id.as_str()),
+            "{id} missing from the HTML list"
+        );
     }
 
     // No group output mentions any listed participant, by id or by name.
@@ -283,6 +317,9 @@ fn followup_list_holds_exactly_the_flagged_participants_and_stays_private() {
         for n in &names {
             assert!(!g.contains(n.as_str()), "{rel} names {n}");
         }
-        assert!(!g.contains("followup"), "{rel} refers to the follow-up list");
+        assert!(
+            !g.contains("followup"),
+            "{rel} refers to the follow-up list"
+        );
     }
 }
