@@ -18,7 +18,8 @@ use std::sync::OnceLock;
 
 const AS_OF: &str = "2026-12-01";
 
-/// The participant whose context and HTML are snapshotted: a plateau with options, labs and
+/// The participant whose context and HTML are snapshotted: past the target (maintenance
+/// guidance), with labs, a plateau on the chart and
 /// every section filled.
 const SNAPSHOT_ID: &str = "SG-007";
 
