@@ -103,6 +103,8 @@ pub fn ceil_to(v: f64, step: f64) -> f64 {
 pub fn tidy_message(text: &str) -> String {
     let chars: Vec<char> = text.chars().collect();
     let mut out = String::with_capacity(text.len() + 8);
+    // After "interval 1920", the " to 2199" that closes the range is energy too.
+    let mut range_partner = false;
     let mut i = 0;
     while i < chars.len() {
         let c = chars[i];
@@ -124,8 +126,10 @@ pub fn tidy_message(text: &str) -> String {
                 }
             }
             let rest: String = chars[j..(j + 5).min(chars.len())].iter().collect();
+            let is_energy = rest == " kcal" || out.ends_with("interval ") || range_partner;
+            range_partner = out.ends_with("interval ");
             if j - i >= 4
-                && rest == " kcal"
+                && is_energy
                 && let Ok(n) = digits.parse::<i64>()
             {
                 out.push_str(&group_thousands(n));
@@ -134,6 +138,9 @@ pub fn tidy_message(text: &str) -> String {
             }
             i = j;
             continue;
+        }
+        if range_partner && !(c == ' ' || c.is_alphabetic() || c == '–') {
+            range_partner = false;
         }
         out.push(c);
         i += 1;
@@ -255,5 +262,9 @@ mod tests {
             "most recently 1 Aug 2026 to 21 Aug 2026: 950 kcal, 1.5 kg"
         );
         assert_eq!(tidy_message("HbA1c 6.8 %"), "HbA1c 6.8 %");
+        assert_eq!(
+            tidy_message("about 2060 kcal/d (95 % interval 1920 to 2199). Archer et al. 2013"),
+            "about 2,060 kcal/d (95 % interval 1,920 to 2,199). Archer et al. 2013"
+        );
     }
 }
