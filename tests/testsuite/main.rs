@@ -9,3 +9,4 @@ mod hostile;
 mod operation;
 mod reports;
 mod sample_program;
+mod unattended;
