@@ -425,7 +425,14 @@ pub fn build(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults) ->
                     .and_then(|o| o.scalar("current_weight_kg"))
             }),
         slope: est(trend, "slope_kg_per_week"),
-        implied: est(energy, "implied_intake_kcal_per_day"),
+        // The interval of the implied intake; where the module also gives its lower bound as
+        // a scalar of its own, the lower (more harmful) of the two is used.
+        implied: est(energy, "implied_intake_kcal_per_day").map(|mut e| {
+            if let Some(l) = energy.and_then(|o| o.scalar("implied_intake_lower_kcal_per_day")) {
+                e.lower = Some(e.lower.map_or(l, |x| x.min(l)));
+            }
+            e
+        }),
         balance: est(energy, "energy_balance_kcal_per_day"),
         tdee: energy.and_then(|e| e.scalar("tdee_kcal_per_day")),
         intake_need: options
