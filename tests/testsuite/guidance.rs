@@ -323,3 +323,38 @@ fn followup_list_holds_exactly_the_flagged_participants_and_stays_private() {
         );
     }
 }
+
+#[test]
+fn context_md_documents_exactly_the_followup_fields() {
+    use crate::reports::{assert_same_paths, context_paths, documented_paths};
+    use cohortpress::report::followup::{FollowupItem, FollowupRecord, context};
+    let s = sample();
+    let record = FollowupRecord {
+        id: "SG-010".into(),
+        name: Some("A Name".into()),
+        weight_kg: Some(70.0),
+        bmi: Some(23.5),
+        change_percent: Some(-4.0),
+        rate_kg_per_week: Some(-0.05),
+        logged_intake_kcal_per_day: Some(1476.0),
+        last_weigh_in: Some("2026-09-30".into()),
+        left_program: None,
+        items: vec![FollowupItem {
+            code: "low_intake".into(),
+            reason: "Logged intake below the usual floor".into(),
+            details: "Logged intake averaged about 1,476 kcal a day".into(),
+            dates: "2026-09-01 to 2026-09-30".into(),
+            new: true,
+        }],
+    };
+    let ctx = context(&s.plan, std::slice::from_ref(&record));
+    assert_eq!(ctx.with_new, 1);
+    assert_eq!(ctx.table.rows[0][2], "new");
+    assert_eq!(ctx.table.rows[0][5], "1 Sep 2026 to 30 Sep 2026");
+    let doc = std::fs::read_to_string(repo_root().join("report-templates/CONTEXT.md")).unwrap();
+    assert_same_paths(
+        "followup.html.hbs",
+        &context_paths(std::slice::from_ref(&ctx)),
+        &documented_paths(&doc, "followup.html.hbs"),
+    );
+}
