@@ -5,6 +5,7 @@ mod check;
 mod exports;
 mod external;
 mod fhir;
+mod guidance;
 mod harness;
 mod hostile;
 mod operation;
