@@ -18,7 +18,7 @@ fn natural_label(code: &str, row: usize) -> String {
         "cycling_leisure" => "Cycling, leisure".into(),
         "stair_climbing" => "Stairs".into(),
         // 5 km/h = 3.1 mph (1 mile = 1.609344 km): the same 2.8–3.2 mph entry.
-        "walking_3mph" if row % 2 == 0 => "walk 5 km/h".into(),
+        "walking_3mph" if row.is_multiple_of(2) => "walk 5 km/h".into(),
         "walking_3mph" => "Walking 3 mph".into(),
         "walking_brisk_3_5mph" => "brisk walk".into(),
         "strength_training" => "Strength training".into(),
