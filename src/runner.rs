@@ -725,15 +725,32 @@ fn tally(
             rows.push(s.to_summary());
         }
     }
+    let reported: std::collections::BTreeSet<&str> = records
+        .iter()
+        .filter(|r| r.summary.is_some())
+        .map(|r| r.id.as_str())
+        .collect();
     for d in &all_diags {
         match d.severity {
-            // Any input error leaves its participant out (the others go on).
-            Severity::Error => tracing::warn!(
-                "{}",
-                d.to_string()
-                    .replacen("error: ", "participant left out: ", 1)
-                    .replace('\n', " |")
-            ),
+            // An error in the profile leaves its participant out; an error in another file
+            // leaves that file out (the participant is reported without it).
+            Severity::Error => {
+                let left_out = d
+                    .participant
+                    .as_deref()
+                    .is_none_or(|p| !reported.contains(p));
+                let what = if left_out {
+                    "participant left out: "
+                } else {
+                    "file not used: "
+                };
+                tracing::warn!(
+                    "{}",
+                    d.to_string()
+                        .replacen("error: ", what, 1)
+                        .replace('\n', " |")
+                )
+            }
             Severity::Warning => tracing::debug!("{}", d.to_string().replace('\n', " |")),
         }
     }
@@ -770,6 +787,19 @@ pub fn finish(
         staging.write(&format!("group/{name}"), &bytes)?;
     }
     timing.group_s = phase.elapsed().as_secs_f64();
+
+    // ---- Clinician follow-up list (only when `followup.recipient` is set) ----
+    // Identified: its own folder, owner-only whatever `--group-readable` says, and built from
+    // the records alone, never from (or into) the group step.
+    if plan.program.def.followup.is_some() {
+        let list: Vec<_> = records.iter().filter_map(|r| r.followup.clone()).collect();
+        let files = report::followup::render(plan, templates, &list, &plan.formats)
+            .map_err(|e| RunError::Render(e.to_string()))?;
+        for (name, bytes) in files {
+            staging.write_private(&format!("{}/{name}", report::followup::FOLDER), &bytes)?;
+        }
+    }
+    // ---- end of the follow-up hook ----
 
     // Tidy metrics.
     let phase = Instant::now();
@@ -871,6 +901,7 @@ fn process_participant(
         reports: Vec::new(),
         summary: None,
         tidy: None,
+        followup: None,
     };
     if let Some(data) = loaded.data {
         let results: ModuleResults =
@@ -897,6 +928,8 @@ fn process_participant(
         rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(
             plan, &data, &results,
         )));
+        // Clinician follow-up list: this participant's flags, when the program turns it on.
+        rec.followup = report::followup::for_participant(plan, &data, &results);
     }
     staging.write(&partial::cache_path(&rec.id), &rec.to_bytes())?;
     Ok(rec)
