@@ -35,12 +35,16 @@ const RUNNER: &str = r#"(function () {
     });
     document.body.appendChild(pre);
   }
+  // The page and every figure that scrolls sideways at this window width.
+  var overflow = [document.documentElement].concat(Array.from(document.querySelectorAll('figure')))
+    .filter(function (e) { return e.scrollWidth > e.clientWidth + 1; })
+    .map(function (e) { return e.tagName.toLowerCase() + ' ' + e.scrollWidth + ' px in ' + e.clientWidth + ' px'; });
   axe.run(document, { resultTypes: ['violations'] }).then(function (r) {
-    done(JSON.stringify(r.violations.map(function (v) {
+    done(JSON.stringify({ overflow: overflow, violations: r.violations.map(function (v) {
       return { id: v.id, impact: v.impact, help: v.help, nodes: v.nodes.map(function (n) {
         return { target: n.target.join(' '), html: n.html.slice(0, 160) };
       }) };
-    })));
+    }) }));
   }).catch(function (e) { done('AXE-ERROR ' + e); });
 })();
 "#;
@@ -109,8 +113,19 @@ fn tools() -> Option<Tools> {
     }
 }
 
-/// Loads `html` in headless Chromium with axe injected and returns axe's violations.
-fn axe_violations(tools: &Tools, html: &str) -> Vec<Violation> {
+/// What one page load found.
+struct Check {
+    /// axe's violations.
+    violations: Vec<Violation>,
+    /// The page or figures that scroll sideways, as `tag N px in M px`.
+    overflow: Vec<String>,
+}
+
+/// Window widths the pages are checked at: a desktop and a phone (390 CSS px).
+const WIDTHS: [u32; 2] = [1000, 390];
+
+/// Loads `html` in headless Chromium, `width` CSS px wide, with axe injected.
+fn axe_check(tools: &Tools, html: &str, width: u32) -> Check {
     let tmp = tempfile::Builder::new()
         .prefix("cohortpress-axe-")
         .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
@@ -123,7 +138,7 @@ fn axe_violations(tools: &Tools, html: &str) -> Vec<Violation> {
     let page = format!("{}{inject}{}", &html[..at], &html[at..]);
     std::fs::write(dir.join("page.html"), page).expect("write page");
 
-    let dom = dump_dom(tools, dir, &dir.join("page.html"));
+    let dom = dump_dom(tools, dir, &dir.join("page.html"), width);
     let start = dom
         .find("<pre id=\"axe-result\">")
         .unwrap_or_else(|| panic!("axe wrote no result; the dumped page ends:\n{}", tail(&dom)))
@@ -136,7 +151,14 @@ fn axe_violations(tools: &Tools, html: &str) -> Vec<Violation> {
     assert!(!text.starts_with("AXE-ERROR"), "axe failed: {text}");
     let json: serde_json::Value = serde_json::from_str(&text).expect("axe result is JSON");
     let str_of = |v: &serde_json::Value, k: &str| v[k].as_str().unwrap_or_default().to_string();
-    json.as_array()
+    let overflow = json["overflow"]
+        .as_array()
+        .expect("overflow list")
+        .iter()
+        .map(|v| v.as_str().unwrap_or_default().to_string())
+        .collect();
+    let violations = json["violations"]
+        .as_array()
         .expect("violation list")
         .iter()
         .map(|v| Violation {
@@ -152,7 +174,11 @@ fn axe_violations(tools: &Tools, html: &str) -> Vec<Violation> {
                 })
                 .collect(),
         })
-        .collect()
+        .collect();
+    Check {
+        violations,
+        overflow,
+    }
 }
 
 fn tail(s: &str) -> &str {
@@ -165,7 +191,7 @@ fn tail(s: &str) -> &str {
 
 /// Runs headless Chromium on `page` and returns the serialised DOM after scripts ran. The
 /// browser gets a fresh profile in `dir`, no network services, and two minutes at most.
-fn dump_dom(tools: &Tools, dir: &Path, page: &Path) -> String {
+fn dump_dom(tools: &Tools, dir: &Path, page: &Path, width: u32) -> String {
     let out_path = dir.join("dom.html");
     let err_path = dir.join("chromium.log");
     let mut child = Command::new(&tools.chromium)
@@ -182,6 +208,7 @@ fn dump_dom(tools: &Tools, dir: &Path, page: &Path) -> String {
             "--virtual-time-budget=10000",
             "--dump-dom",
         ])
+        .arg(format!("--window-size={width},900"))
         .arg(format!("--user-data-dir={}", dir.join("profile").display()))
         .arg(format!("file://{}", page.display()))
         .stdin(Stdio::null())
@@ -230,7 +257,7 @@ fn axe_reports_the_faults_of_a_broken_page() {
 <table><thead><tr><th></th><th>Weight</th></tr></thead><tbody><tr><td>Week 1</td><td>80</td></tr></tbody></table>
 <figure role="img" aria-label="A chart"><svg width="10" height="10"></svg><figcaption>A chart. More words.</figcaption></figure>
 </main></body></html>"#;
-    let found = axe_violations(&tools, page);
+    let found = axe_check(&tools, page, 1000).violations;
     let ids: Vec<&str> = found.iter().map(|v| v.id.as_str()).collect();
     for expected in ["image-alt", "empty-table-header", "aria-allowed-role"] {
         assert!(
@@ -247,8 +274,20 @@ fn participant_reports_have_no_axe_violations() {
     let run = sample_run();
     for id in PARTICIPANTS {
         let html = run.read(&format!("participants/{id}.html"));
-        let found = axe_violations(&tools, &html);
-        assert!(found.is_empty(), "{id}.html:\n{}", describe(&found));
+        for width in WIDTHS {
+            let found = axe_check(&tools, &html, width);
+            assert!(
+                found.violations.is_empty(),
+                "{id}.html at {width} px:\n{}",
+                describe(&found.violations)
+            );
+            // Charts reflow: nothing scrolls sideways, not even at phone width.
+            assert!(
+                found.overflow.is_empty(),
+                "{id}.html at {width} px: {:?}",
+                found.overflow
+            );
+        }
     }
 }
 
@@ -259,21 +298,29 @@ fn participant_reports_have_no_axe_violations() {
 fn group_report_has_no_axe_violations() {
     let Some(tools) = tools() else { return };
     let html = sample_run().read("group/program.html");
-    let mut found = axe_violations(&tools, &html);
-    if html.contains("<figure role=\"img\"") {
-        for v in &mut found {
-            if v.id == "aria-allowed-role" {
-                v.nodes
-                    .retain(|n| !n.html.starts_with("<figure role=\"img\""));
+    for width in WIDTHS {
+        let check = axe_check(&tools, &html, width);
+        let mut found = check.violations;
+        if html.contains("<figure role=\"img\"") {
+            for v in &mut found {
+                if v.id == "aria-allowed-role" {
+                    v.nodes
+                        .retain(|n| !n.html.starts_with("<figure role=\"img\""));
+                }
             }
+            found.retain(|v| !v.nodes.is_empty());
         }
-        found.retain(|v| !v.nodes.is_empty());
+        assert!(
+            found.is_empty(),
+            "group/program.html at {width} px:\n{}",
+            describe(&found)
+        );
+        assert!(
+            check.overflow.is_empty(),
+            "group at {width} px: {:?}",
+            check.overflow
+        );
     }
-    assert!(
-        found.is_empty(),
-        "group/program.html:\n{}",
-        describe(&found)
-    );
 }
 
 /// Needs no browser: a chart figure keeps its caption in the accessibility tree (no
@@ -287,11 +334,18 @@ fn participant_chart_captions_stay_readable() {
     assert_eq!(figures.len(), 3, "weight, energy and activity charts");
     for fig in figures {
         let fig = &fig[..fig.find("</figure>").expect("closed figure")];
-        assert!(fig.contains("<svg"), "figure without a chart: {fig:.200}");
-        let svg_open = &fig[fig.find("<svg").unwrap()..];
-        let svg_open = &svg_open[..svg_open.find('>').unwrap()];
-        assert!(svg_open.contains("role=\"img\""), "{svg_open}");
-        assert!(svg_open.contains("aria-label=\""), "{svg_open}");
+        // Each chart is drawn wide and narrow; the style shows one of them.
+        assert_eq!(fig.matches("<svg").count(), 2, "{fig:.200}");
+        assert!(fig.contains("<div class=\"chart-wide\"><svg"), "{fig:.200}");
+        assert!(
+            fig.contains("<div class=\"chart-narrow\"><svg"),
+            "{fig:.200}"
+        );
+        for svg in fig.split("<svg").skip(1) {
+            let svg_open = &svg[..svg.find('>').unwrap()];
+            assert!(svg_open.contains("role=\"img\""), "{svg_open}");
+            assert!(svg_open.contains("aria-label=\""), "{svg_open}");
+        }
         assert!(fig.contains("<figcaption>"), "figure without a caption");
     }
     assert!(html.contains(

@@ -422,8 +422,8 @@ fn participant_html_snapshot() {
     let stripped = strip_svg(&html);
     assert_eq!(
         html.matches("<svg").count(),
-        3,
-        "weight, energy and activity charts"
+        6,
+        "weight, energy and activity charts, each drawn wide and narrow"
     );
     insta::with_settings!({filters => vec![(r"cohortpress \d+\.\d+\.\d+\S*", "cohortpress [version]")]}, {
         insta::assert_snapshot!("participant_html_sg007", stripped);
