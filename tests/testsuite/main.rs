@@ -3,7 +3,9 @@
 
 mod accessibility;
 mod check;
+mod exports;
 mod external;
+mod fhir;
 mod guidance;
 mod harness;
 mod hostile;
