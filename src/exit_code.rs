@@ -9,7 +9,8 @@ pub const WARNINGS: i32 = 1;
 pub const USAGE: i32 = 2;
 /// `program.yaml` (or the program folder itself) is invalid; nothing was computed.
 pub const PROGRAM_INVALID: i32 = 3;
-/// Some participants had errors and were left out; every other participant was processed.
+/// Some inputs had errors: a participant whose profile is unusable, or a file that could not be
+/// used, was left out; everything else was processed (participants without the lost file).
 pub const PARTICIPANT_ERRORS: i32 = 4;
 /// A metric module (built-in or external) failed for some participants; their other
 /// modules' results and reports were still written.
@@ -20,6 +21,38 @@ pub const OUTPUT_FAILED: i32 = 6;
 pub const LOCKED: i32 = 7;
 /// An internal error (a bug): please report it.
 pub const INTERNAL: i32 = 70;
+
+/// What a command found, in the terms the exit codes speak. `check`, `run` and `merge` all map
+/// their outcome to a code through [`Outcome::exit_code`], so the same inputs give the same code
+/// from each of them.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct Outcome {
+    /// `program.yaml` or the participants folder is unusable: nothing can be computed.
+    pub program_invalid: bool,
+    /// Participants (or participant folders) left out because of errors in their inputs.
+    pub participants_left_out: usize,
+    /// Module failures (participant × module); `check` runs no modules.
+    pub module_failures: usize,
+    /// Input warnings (values dropped or suspicious, stray files).
+    pub warnings: usize,
+}
+
+impl Outcome {
+    /// The documented code: the highest that applies.
+    pub fn exit_code(&self) -> i32 {
+        if self.program_invalid {
+            PROGRAM_INVALID
+        } else if self.module_failures > 0 {
+            MODULE_FAILED
+        } else if self.participants_left_out > 0 {
+            PARTICIPANT_ERRORS
+        } else if self.warnings > 0 {
+            WARNINGS
+        } else {
+            SUCCESS
+        }
+    }
+}
 
 /// One line per code, for `--help` and the README.
 pub const TABLE: &[(i32, &str)] = &[
@@ -38,7 +71,7 @@ pub const TABLE: &[(i32, &str)] = &[
     ),
     (
         PARTICIPANT_ERRORS,
-        "some participants had errors and were left out; the others were processed",
+        "some inputs had errors: a participant (unusable profile) or a file was left out; the rest was processed",
     ),
     (
         MODULE_FAILED,

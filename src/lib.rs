@@ -19,10 +19,12 @@
 pub mod activities;
 pub mod check;
 pub mod cli;
+pub mod csv_out;
 pub mod demo;
 pub mod diag;
 pub mod exit_code;
 pub mod group;
+pub mod import;
 pub mod limits;
 pub mod modules;
 pub mod output;

@@ -14,6 +14,26 @@ pub const MAX_CSV_BYTES: u64 = 64 * 1024 * 1024;
 /// Largest YAML input file read (`program.yaml`, `profile.yaml`), in bytes (1 MiB).
 pub const MAX_YAML_BYTES: u64 = 1024 * 1024;
 
+/// Deepest nesting of lists and mappings in a YAML file (a profile nests 2 levels, a program 5).
+pub const MAX_YAML_DEPTH: usize = 32;
+/// Most YAML events (scalars, list and mapping starts and ends) in one file.
+pub const MAX_YAML_EVENTS: u64 = 100_000;
+/// Most aliases (`*name`) in one YAML file.
+pub const MAX_YAML_ALIASES: u64 = 1_000;
+/// Most YAML events once every alias is expanded (what the deserializer really walks).
+pub const MAX_YAML_EXPANDED: u64 = 200_000;
+
+/// Most data rows read from one CSV file (over 130 years of daily rows; a file over it is
+/// refused, the participant left out, and reading stops there).
+pub const MAX_CSV_ROWS: usize = 50_000;
+/// Most columns in a CSV header (an input file has at most 6 known columns; extra columns
+/// from an export are ignored with a warning, up to this many).
+pub const MAX_CSV_COLUMNS: usize = 256;
+/// Longest CSV field, in bytes (a note or a label; longer rows are dropped with a warning).
+pub const MAX_CSV_FIELD_BYTES: usize = 4096;
+/// Diagnostics of one kind kept per file; the rest are counted in one summary line.
+pub const MAX_DIAGNOSTICS_PER_KIND: usize = 20;
+
 /// The limit for a file, by its extension: YAML files get [`MAX_YAML_BYTES`], everything else
 /// [`MAX_CSV_BYTES`].
 pub fn limit_for(path: &Path) -> u64 {
@@ -54,12 +74,205 @@ pub fn too_large_message(size: u64, limit: u64) -> String {
     )
 }
 
+/// Opens an input file for reading without following a link, and refuses anything that is
+/// not a regular file.
+///
+/// On Unix the file is opened with `O_NOFOLLOW` (a symbolic link as the last path component
+/// fails instead of being followed) and `O_NONBLOCK` (opening a FIFO never waits for a writer);
+/// the type is then checked on the opened handle (`fstat`), so nothing can swap the file between
+/// the check and the read. A link, a FIFO, a device, a socket or a folder gives an error whose
+/// message says what was found; nothing is read from it.
+pub fn open_input(path: &Path) -> std::io::Result<std::fs::File> {
+    #[cfg(unix)]
+    {
+        let fd = rustix::fs::open(path, input_flags(), rustix::fs::Mode::empty());
+        checked_file(fd.map_err(|e| link_or(e, || is_link(path))))
+    }
+    #[cfg(not(unix))]
+    {
+        if is_link(path) {
+            return Err(std::io::Error::other(LINK_MESSAGE));
+        }
+        checked_file(std::fs::File::open(path))
+    }
+}
+
+/// A participant's folder, opened once without following a link: its files are opened relative
+/// to it ([`read_input_in`]), so a folder swapped for a link while the run goes on is not
+/// followed either.
+#[derive(Debug)]
+pub struct InputDir {
+    #[cfg(unix)]
+    fd: std::os::fd::OwnedFd,
+    #[cfg_attr(unix, allow(dead_code))]
+    path: std::path::PathBuf,
+}
+
+/// Opens a folder of inputs without following a link (`O_DIRECTORY | O_NOFOLLOW`).
+pub fn open_dir(path: &Path) -> std::io::Result<InputDir> {
+    #[cfg(unix)]
+    {
+        use rustix::fs::OFlags;
+        let flags = OFlags::RDONLY | OFlags::DIRECTORY | OFlags::NOFOLLOW | OFlags::CLOEXEC;
+        let fd = rustix::fs::open(path, flags, rustix::fs::Mode::empty())
+            .map_err(|e| link_or(e, || is_link(path)))?;
+        Ok(InputDir {
+            fd,
+            path: path.to_path_buf(),
+        })
+    }
+    #[cfg(not(unix))]
+    {
+        if is_link(path) || !path.is_dir() {
+            return Err(std::io::Error::other(LINK_MESSAGE));
+        }
+        Ok(InputDir {
+            path: path.to_path_buf(),
+        })
+    }
+}
+
+/// Reads the file `name` of `dir` like [`read_input`] (no links, regular files only, size
+/// limit by the name's extension), opened relative to the folder's handle.
+pub fn read_input_in(dir: &InputDir, name: &str) -> std::io::Result<Vec<u8>> {
+    let limit = limit_for(Path::new(name));
+    #[cfg(unix)]
+    let f = {
+        let fd = rustix::fs::openat(&dir.fd, name, input_flags(), rustix::fs::Mode::empty());
+        checked_file(fd.map_err(|e| {
+            link_or(e, || {
+                rustix::fs::statat(&dir.fd, name, rustix::fs::AtFlags::SYMLINK_NOFOLLOW).is_ok_and(
+                    |st| {
+                        rustix::fs::FileType::from_raw_mode(st.st_mode)
+                            == rustix::fs::FileType::Symlink
+                    },
+                )
+            })
+        }))?
+    };
+    #[cfg(not(unix))]
+    let f = open_input(&dir.path.join(name))?;
+    read_open(f, limit)
+}
+
+/// The names in `dir`, read through its handle (so from the folder that was opened, whatever
+/// its path leads to now), and whether every entry could be read.
+pub fn list_dir(dir: &InputDir) -> std::io::Result<(Vec<String>, bool)> {
+    let mut names = Vec::new();
+    let mut complete = true;
+    #[cfg(unix)]
+    for entry in rustix::fs::Dir::read_from(&dir.fd)? {
+        match entry {
+            Ok(e) => {
+                let name = e.file_name().to_string_lossy();
+                if name != "." && name != ".." {
+                    names.push(name.into_owned());
+                }
+            }
+            Err(_) => complete = false,
+        }
+    }
+    #[cfg(not(unix))]
+    for entry in std::fs::read_dir(&dir.path)? {
+        match entry {
+            Ok(e) => names.push(e.file_name().to_string_lossy().into_owned()),
+            Err(_) => complete = false,
+        }
+    }
+    Ok((names, complete))
+}
+
+#[cfg(unix)]
+fn input_flags() -> rustix::fs::OFlags {
+    use rustix::fs::OFlags;
+    OFlags::RDONLY | OFlags::NOFOLLOW | OFlags::NONBLOCK | OFlags::NOCTTY | OFlags::CLOEXEC
+}
+
+/// An open error in words when the path is a link (`O_NOFOLLOW` fails with `ELOOP`; the kind
+/// of error is kept).
+#[cfg(unix)]
+fn link_or(e: rustix::io::Errno, is_link: impl FnOnce() -> bool) -> std::io::Error {
+    let e = std::io::Error::from(e);
+    if e.kind() != std::io::ErrorKind::NotFound && is_link() {
+        std::io::Error::new(e.kind(), LINK_MESSAGE)
+    } else {
+        e
+    }
+}
+
+fn is_link(path: &Path) -> bool {
+    std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink())
+}
+
+/// The opened handle as a `File` when it is a regular file.
+fn checked_file<F: Into<std::fs::File>>(
+    opened: std::io::Result<F>,
+) -> std::io::Result<std::fs::File> {
+    let f: std::fs::File = opened?.into();
+    let meta = f.metadata()?;
+    if !meta.is_file() {
+        return Err(std::io::Error::new(
+            std::io::ErrorKind::InvalidInput,
+            not_a_file_message(&meta.file_type()),
+        ));
+    }
+    Ok(f)
+}
+
+/// Why a link is not read.
+pub const LINK_MESSAGE: &str = "it is a symbolic link, and links are not followed (they could \
+    point at another participant's data or at a system file); put the file itself here";
+
+/// Why something that is not a regular file is not read.
+pub fn not_a_file_message(t: &std::fs::FileType) -> String {
+    format!(
+        "it is {}, not a regular file; nothing was read from it (put the file itself here)",
+        kind_of(t)
+    )
+}
+
+/// "a folder", "a FIFO (named pipe)", … for a file type.
+pub fn kind_of(t: &std::fs::FileType) -> &'static str {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::FileTypeExt;
+        if t.is_fifo() {
+            return "a FIFO (named pipe)";
+        }
+        if t.is_char_device() || t.is_block_device() {
+            return "a device";
+        }
+        if t.is_socket() {
+            return "a socket";
+        }
+    }
+    if t.is_symlink() {
+        "a symbolic link"
+    } else if t.is_dir() {
+        "a folder"
+    } else if t.is_file() {
+        "a regular file"
+    } else {
+        "a special file"
+    }
+}
+
 /// Reads a whole input file, refusing it before reading when it is over its limit
-/// ([`limit_for`]). The file is opened read-only. The size is checked on the open file and the
-/// read is capped, so a file that grows while it is read is still refused.
+/// ([`limit_for`]). The file is opened read-only through [`open_input`] (no links, regular files
+/// only). The size is checked on the open file and the read is capped, so a file that grows
+/// while it is read is still refused.
 pub fn read_input(path: &Path) -> std::io::Result<Vec<u8>> {
-    let limit = limit_for(path);
-    let f = std::fs::OpenOptions::new().read(true).open(path)?;
+    read_limited(path, limit_for(path))
+}
+
+/// [`read_input`] with an explicit limit.
+pub fn read_limited(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
+    read_open(open_input(path)?, limit)
+}
+
+/// Reads an opened input, refusing it when over `limit` (checked on the handle first, and the
+/// read capped, so a file that grows while it is read is still refused).
+fn read_open(f: std::fs::File, limit: u64) -> std::io::Result<Vec<u8>> {
     let size = f.metadata()?.len();
     if size > limit {
         return Err(std::io::Error::other(too_large_message(size, limit)));
@@ -77,9 +290,9 @@ pub fn read_input(path: &Path) -> std::io::Result<Vec<u8>> {
 
 /// Checks a file's size without reading it (for `program.yaml`, before the program loader
 /// reads it). `Ok` when the file is within its limit or cannot be examined (the loader then
-/// reports why it cannot be read).
+/// reports why it cannot be read). Links are not followed.
 pub fn check_size(path: &Path) -> Result<(), String> {
-    match std::fs::metadata(path) {
+    match std::fs::symlink_metadata(path) {
         Ok(m) if m.is_file() && m.len() > limit_for(path) => {
             Err(too_large_message(m.len(), limit_for(path)))
         }

@@ -17,7 +17,7 @@ use crate::diag::{Diagnostic, Severity};
 use crate::exit_code;
 use crate::group::{self, GroupOptions, ParticipantSummary};
 use crate::modules::{self, ModuleResults, ModuleSet};
-use crate::output::{Access, OutputSet, Staging, StagingError};
+use crate::output::{Access, OutputScope, OutputSet, OutputTarget, Staging, StagingError};
 use crate::partial::{
     self, DiagRecord, InputRecord, ParticipantRecord, RunKey, SummaryRecord, TidyRecord,
 };
@@ -45,6 +45,8 @@ pub struct RunPlan {
     pub as_of: NaiveDate,
     /// The output folder.
     pub out_dir: PathBuf,
+    /// How the output folder was named (`--out` or `report.out`), for refusals.
+    pub out_named_by: &'static str,
     /// Formats to write.
     pub formats: Vec<Format>,
     /// Only these participant ids (empty = all).
@@ -61,6 +63,45 @@ pub struct RunPlan {
     pub key: RunKey,
     /// State folder of the group-report ledger (`--state`, default `<out>.ledger`).
     pub state_dir: PathBuf,
+}
+
+impl RunPlan {
+    /// What this run puts in its output folder.
+    pub fn scope(&self) -> OutputScope {
+        if self.shard.is_some() {
+            OutputScope::Shard
+        } else if !self.only.is_empty() {
+            OutputScope::Only
+        } else {
+            OutputScope::Complete
+        }
+    }
+
+    /// The output folder with what it must never touch.
+    pub fn output_target(&self) -> OutputTarget {
+        OutputTarget::for_program(
+            &self.program,
+            self.out_dir.clone(),
+            self.scope(),
+            self.out_named_by,
+        )
+    }
+
+    /// Takes the output folder for this run (see [`Staging::begin`]). A refusal names the
+    /// folder; its exit code says who named it: the command line (2) or program.yaml (3).
+    pub fn begin_staging(&self) -> Result<Staging, RunError> {
+        Staging::begin(&self.output_target(), self.access).map_err(|e| match e {
+            StagingError::Refused(m) => RunError::Refused {
+                message: m,
+                code: if self.out_named_by == "--out" {
+                    exit_code::USAGE
+                } else {
+                    exit_code::PROGRAM_INVALID
+                },
+            },
+            other => other.into(),
+        })
+    }
 }
 
 /// Seconds spent in each phase of a run, reported in the log only (never in an output file, so
@@ -105,7 +146,7 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
                 "done in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
                 started.elapsed().as_secs_f64(),
                 summary.reported,
-                summary.participants_with_errors,
+                summary.participants_with_errors + summary.skipped_folders,
                 summary.module_failures,
                 summary.warnings,
                 plan.out_dir.display()
@@ -171,9 +212,9 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
     let (program, modules) = load_checked(&args.program)?;
     let as_of = args.as_of.unwrap_or(today);
     let period = resolve_period(&program, as_of, args).map_err(usage)?;
-    let mut out_dir = match &args.out {
-        Some(o) => o.clone(),
-        None => program.root.join(&program.def.report.out),
+    let (mut out_dir, out_named_by) = match &args.out {
+        Some(o) => (o.clone(), "--out"),
+        None => (program.root.join(&program.def.report.out), "report.out"),
     };
     if let (Some(s), None) = (args.shard, &args.out) {
         out_dir = shard::default_shard_out(&out_dir, s);
@@ -215,6 +256,7 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
         period,
         as_of,
         out_dir,
+        out_named_by,
         formats,
         only: args.only.clone(),
         jobs,
@@ -255,9 +297,9 @@ pub fn plan_for_merge(
             }
         });
     }
-    let out_dir = match &args.out {
-        Some(o) => o.clone(),
-        None => program.root.join(&program.def.report.out),
+    let (out_dir, out_named_by) = match &args.out {
+        Some(o) => (o.clone(), "--out"),
+        None => (program.root.join(&program.def.report.out), "report.out"),
     };
     let key = run_key(&program, &modules, period, as_of, &formats)?;
     let state_dir = args
@@ -270,6 +312,7 @@ pub fn plan_for_merge(
         period,
         as_of,
         out_dir,
+        out_named_by,
         formats,
         only,
         jobs: 1,
@@ -419,22 +462,22 @@ pub struct RunSummary {
     pub module_failures: usize,
     /// Input warnings.
     pub warnings: usize,
-    /// Program-level diagnostics (discovery).
+    /// Warnings about the participants folder (stray files, links).
     pub program_warnings: usize,
+    /// Participant folders skipped because their name is not a usable id.
+    pub skipped_folders: usize,
 }
 
 impl RunSummary {
-    /// The documented exit code for this outcome (highest applicable).
+    /// The documented exit code for this outcome (see [`exit_code::Outcome`]).
     pub fn exit_code(&self) -> i32 {
-        if self.module_failures > 0 {
-            exit_code::MODULE_FAILED
-        } else if self.participants_with_errors > 0 {
-            exit_code::PARTICIPANT_ERRORS
-        } else if self.warnings > 0 || self.program_warnings > 0 {
-            exit_code::WARNINGS
-        } else {
-            exit_code::SUCCESS
+        exit_code::Outcome {
+            program_invalid: false,
+            participants_left_out: self.participants_with_errors + self.skipped_folders,
+            module_failures: self.module_failures,
+            warnings: self.warnings + self.program_warnings,
         }
+        .exit_code()
     }
 }
 
@@ -450,6 +493,15 @@ pub enum RunError {
     /// Rendering a report failed (a template error, for instance).
     #[error("rendering failed: {0}")]
     Render(String),
+    /// The run may not write where it was asked to, or cannot run on these inputs; nothing was
+    /// written and the previous output is untouched.
+    #[error("{message}")]
+    Refused {
+        /// What is wrong and what to do.
+        message: String,
+        /// The exit code (usage or program invalid).
+        code: i32,
+    },
 }
 
 impl RunError {
@@ -458,6 +510,7 @@ impl RunError {
         match self {
             RunError::Locked(_) => exit_code::LOCKED,
             RunError::Output(_) | RunError::Render(_) => exit_code::OUTPUT_FAILED,
+            RunError::Refused { code, .. } => *code,
         }
     }
 }
@@ -466,39 +519,69 @@ impl From<StagingError> for RunError {
     fn from(e: StagingError) -> Self {
         match e {
             StagingError::Locked(m) => RunError::Locked(m),
+            StagingError::Refused(m) => RunError::Refused {
+                message: m,
+                code: exit_code::USAGE,
+            },
             other => RunError::Output(other.to_string()),
         }
     }
 }
 
-/// The participant folders a plan covers: discovery, then `--only`, then `--shard`.
-pub fn select_participants(plan: &RunPlan) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
+/// The participant folders a plan covers: discovery, then `--only`, then `--shard`. Refused
+/// (nothing is written) when there is nothing sound to report on: `participants/` missing or
+/// unreadable (exit 3, as `check`), or an `--only` id without a folder (exit 2): a typo must
+/// never produce an empty report.
+pub fn select_participants(
+    plan: &RunPlan,
+) -> Result<(Vec<ParticipantDir>, Vec<Diagnostic>), RunError> {
     let (mut dirs, discovery) = participant::discover(&plan.program);
+    if let Some(d) = discovery.iter().find(|d| participant::is_folder_error(d)) {
+        return Err(RunError::Refused {
+            message: format!(
+                "{}; the previous output was left as it is",
+                d.to_string()
+                    .trim_start_matches("error: ")
+                    .replace('\n', " |")
+            ),
+            code: exit_code::PROGRAM_INVALID,
+        });
+    }
     if !plan.only.is_empty() {
-        let unknown: Vec<&String> = plan
+        let unknown: Vec<&str> = plan
             .only
             .iter()
             .filter(|id| !dirs.iter().any(|d| &d.id == *id))
+            .map(String::as_str)
             .collect();
-        for id in unknown {
-            tracing::warn!("--only {id}: no such participant folder");
+        if !unknown.is_empty() {
+            return Err(RunError::Refused {
+                message: format!(
+                    "--only: no participant folder named {} in {}; nothing was written",
+                    unknown.join(", "),
+                    plan.program
+                        .root
+                        .join(participant::PARTICIPANTS_DIR)
+                        .display()
+                ),
+                code: exit_code::USAGE,
+            });
         }
         dirs.retain(|d| plan.only.contains(&d.id));
     }
     if let Some(s) = plan.shard {
         dirs.retain(|d| s.contains(&d.id));
     }
-    (dirs, discovery)
+    Ok((dirs, discovery))
 }
 
 /// Executes a plan: every participant, then (unless it is a shard) the group step and all
 /// outputs.
 pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
-    let staging = Staging::begin_with(&plan.out_dir, plan.access)?;
+    let (dirs, discovery) = select_participants(plan)?;
     let templates = report::templates::TemplateSet::load(&plan.program)
         .map_err(|e| RunError::Render(e.to_string()))?;
-
-    let (dirs, discovery) = select_participants(plan);
+    let staging = plan.begin_staging()?;
     tracing::info!(
         "program {}: {} participants{}, period {} to {}, as of {}",
         plan.program.info.id,
@@ -620,7 +703,14 @@ fn tally(
 ) {
     let mut summary = RunSummary {
         participants: records.len(),
-        program_warnings: discovery.len(),
+        program_warnings: discovery
+            .iter()
+            .filter(|d| d.severity == Severity::Warning)
+            .count(),
+        skipped_folders: discovery
+            .iter()
+            .filter(|d| d.severity == Severity::Error)
+            .count(),
         ..Default::default()
     };
     let mut all_diags: Vec<Diagnostic> = discovery.to_vec();
@@ -650,15 +740,32 @@ fn tally(
             rows.push(row);
         }
     }
+    let reported: std::collections::BTreeSet<&str> = records
+        .iter()
+        .filter(|r| r.summary.is_some())
+        .map(|r| r.id.as_str())
+        .collect();
     for d in &all_diags {
         match d.severity {
-            // Any input error leaves its participant out (the others go on).
-            Severity::Error => tracing::warn!(
-                "{}",
-                d.to_string()
-                    .replacen("error: ", "participant left out: ", 1)
-                    .replace('\n', " |")
-            ),
+            // An error in the profile leaves its participant out; an error in another file
+            // leaves that file out (the participant is reported without it).
+            Severity::Error => {
+                let left_out = d
+                    .participant
+                    .as_deref()
+                    .is_none_or(|p| !reported.contains(p));
+                let what = if left_out {
+                    "participant left out: "
+                } else {
+                    "file not used: "
+                };
+                tracing::warn!(
+                    "{}",
+                    d.to_string()
+                        .replacen("error: ", what, 1)
+                        .replace('\n', " |")
+                )
+            }
             Severity::Warning => tracing::debug!("{}", d.to_string().replace('\n', " |")),
         }
     }
@@ -705,6 +812,19 @@ pub fn finish(
         staging.write(&format!("group/{name}"), &bytes)?;
     }
     timing.group_s = phase.elapsed().as_secs_f64();
+
+    // ---- Clinician follow-up list (only when `followup.recipient` is set) ----
+    // Identified: its own folder, owner-only whatever `--group-readable` says, and built from
+    // the records alone, never from (or into) the group step.
+    if plan.program.def.followup.is_some() {
+        let list: Vec<_> = records.iter().filter_map(|r| r.followup.clone()).collect();
+        let files = report::followup::render(plan, templates, &list, &plan.formats)
+            .map_err(|e| RunError::Render(e.to_string()))?;
+        for (name, bytes) in files {
+            staging.write_private(&format!("{}/{name}", report::followup::FOLDER), &bytes)?;
+        }
+    }
+    // ---- end of the follow-up hook ----
 
     // Tidy metrics.
     let phase = Instant::now();
@@ -758,7 +878,9 @@ fn reuse_participant(
 ) -> Result<Option<ParticipantRecord>, RunError> {
     let prev = staging.final_dir();
     let rel = partial::cache_path(&dir.id);
-    let Ok(bytes) = std::fs::read(prev.join(&rel)) else {
+    // The previous output is read like an input: no links, no FIFOs or devices (which would
+    // make the run wait or read forever), regular files within the size limit only.
+    let Ok(bytes) = crate::limits::read_input(&prev.join(&rel)) else {
         return Ok(None);
     };
     let Some(rec) = ParticipantRecord::from_bytes(&bytes) else {
@@ -775,7 +897,7 @@ fn reuse_participant(
     }
     let mut reports = Vec::with_capacity(rec.reports.len());
     for r in &rec.reports {
-        match std::fs::read(prev.join(&r.path)) {
+        match crate::limits::read_input(&prev.join(&r.path)) {
             Ok(b) if blake3::hash(&b).to_hex().as_str() == r.blake3 => reports.push(b),
             _ => return Ok(None),
         }
@@ -814,6 +936,7 @@ fn process_participant(
         reports: Vec::new(),
         summary: None,
         tidy: None,
+        followup: None,
     };
     if let Some(data) = loaded.data {
         let results: ModuleResults =
@@ -840,6 +963,8 @@ fn process_participant(
         rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(
             plan, &data, &results,
         )));
+        // Clinician follow-up list: this participant's flags, when the program turns it on.
+        rec.followup = report::followup::for_participant(plan, &data, &results);
     }
     staging.write(&partial::cache_path(&rec.id), &rec.to_bytes())?;
     Ok(rec)

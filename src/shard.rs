@@ -15,7 +15,7 @@
 use crate::cli::MergeArgs;
 use crate::diag::Diagnostic;
 use crate::exit_code;
-use crate::output::{Access, Staging};
+use crate::output::Access;
 use crate::partial::{self, DiagRecord, ParticipantRecord, RunKey};
 use crate::runner::{self, RunError, RunPlan};
 use serde::{Deserialize, Serialize};
@@ -124,7 +124,7 @@ fn read_shards(dirs: &[PathBuf]) -> Result<Vec<ShardFile>, (i32, Vec<Diagnostic>
     let mut shards = Vec::new();
     for d in dirs {
         let path = d.join(SHARD_FILE);
-        let bytes = std::fs::read(&path).map_err(|e| {
+        let bytes = crate::limits::read_input(&path).map_err(|e| {
             merge_error(format!(
                 "cannot read {} ({e}); give the output folders of `run --shard K/N`",
                 path.display()
@@ -226,7 +226,7 @@ pub fn merge_command(args: &MergeArgs) -> i32 {
                 shards.len(),
                 started.elapsed().as_secs_f64(),
                 summary.reported,
-                summary.participants_with_errors,
+                summary.participants_with_errors + summary.skipped_folders,
                 summary.module_failures,
                 summary.warnings,
                 plan.out_dir.display()
@@ -245,14 +245,14 @@ fn merge(
     dirs: &[PathBuf],
     shards: &[ShardFile],
 ) -> Result<runner::RunSummary, RunError> {
-    let staging = Staging::begin_with(&plan.out_dir, plan.access).map_err(RunError::from)?;
+    let staging = plan.begin_staging()?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();
     let columns = std::sync::Mutex::new(crate::tidy::Columns::new(plan.modules.ids()));
     for (dir, shard) in dirs.iter().zip(shards) {
         for id in &shard.participants {
             let rel = partial::cache_path(id);
-            let bytes = std::fs::read(dir.join(&rel))
+            let bytes = crate::limits::read_input(&dir.join(&rel))
                 .map_err(|e| RunError::Output(format!("{}: {e}", dir.join(&rel).display())))?;
             let rec = ParticipantRecord::from_bytes(&bytes)
                 .filter(|r| &r.id == id && r.run_key == key_hash)
@@ -263,7 +263,7 @@ fn merge(
                     ))
                 })?;
             for f in &rec.reports {
-                let b = std::fs::read(dir.join(&f.path)).map_err(|e| {
+                let b = crate::limits::read_input(&dir.join(&f.path)).map_err(|e| {
                     RunError::Output(format!("{}: {e}", dir.join(&f.path).display()))
                 })?;
                 if blake3::hash(&b).to_hex().as_str() != f.blake3 {

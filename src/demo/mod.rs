@@ -127,16 +127,26 @@ fn prepare_folder(out: &Path) -> io::Result<()> {
     if entries.next().is_none() {
         return Ok(());
     }
-    let ours = fs::read_to_string(out.join("program.yaml"))
-        .map(|text| text.starts_with(write::MARKER))
+    // Only an unedited demo: its program.yaml is exactly what the options named on its first
+    // line generate. A program started from the demo and made real (its own title, id or
+    // targets) keeps its participants.
+    let ours = crate::limits::read_input(&out.join("program.yaml"))
+        .ok()
+        .and_then(|bytes| {
+            let text = String::from_utf8(bytes).ok()?;
+            let opts = options_from_marker(text.lines().next()?)?;
+            let mut fresh = Vec::new();
+            write::program_yaml(&mut fresh, &Scenario::steady_ground(), &opts);
+            Some(fresh == text.as_bytes())
+        })
         .unwrap_or(false);
     if !ours {
         return Err(io::Error::new(
             io::ErrorKind::AlreadyExists,
             format!(
                 "refusing to write into `{}`: the folder is not empty and is not a demo program \
-                 written by `cohortpress demo-program` (no generated program.yaml); \
-                 hint: choose a new or empty folder",
+                 written by `cohortpress demo-program` (no generated program.yaml, or one that \
+                 was edited since); hint: choose a new or empty folder",
                 out.display()
             ),
         ));
@@ -146,6 +156,24 @@ fn prepare_folder(out: &Path) -> io::Result<()> {
         fs::remove_dir_all(old)?;
     }
     Ok(())
+}
+
+/// The options a generated program.yaml's first line names:
+/// `MARKER (seed S, N participants, with|without planted input errors).`
+fn options_from_marker(line: &str) -> Option<DemoOptions> {
+    let rest = line.strip_prefix(write::MARKER)?.strip_prefix(" (seed ")?;
+    let (seed, rest) = rest.split_once(", ")?;
+    let (n, rest) = rest.split_once(" participants, ")?;
+    let with_defects = match rest {
+        "with planted input errors)." => true,
+        "without planted input errors)." => false,
+        _ => return None,
+    };
+    Some(DemoOptions {
+        participants: n.parse().ok()?,
+        seed: seed.parse().ok()?,
+        with_defects,
+    })
 }
 
 /// Simulates one participant and writes its folder; returns (files, bytes).

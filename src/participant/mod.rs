@@ -4,6 +4,7 @@
 //! (read-only), checks everything and returns the data with every diagnostic. A problem in one
 //! participant never stops the others. The parsers ([`profile`], [`records`]) work on text.
 
+pub mod encoding;
 pub mod profile;
 pub mod quantity;
 pub mod records;
@@ -52,12 +53,16 @@ pub struct LoadedParticipant {
     pub data: Option<ParticipantData>,
     /// Every problem found, errors and warnings.
     pub diagnostics: Vec<Diagnostic>,
+    /// How files were read where it was recognised rather than written our way (shown by
+    /// `check`; not problems).
+    pub notes: Vec<table::Note>,
     /// Files read.
     pub files: Vec<InputFile>,
 }
 
 impl LoadedParticipant {
-    /// Whether any diagnostic is an error (the participant is then left out).
+    /// Whether any diagnostic is an error (a file that could not be used, or the whole
+    /// participant when the profile or folder is unusable).
     pub fn has_errors(&self) -> bool {
         self.diagnostics
             .iter()
@@ -105,10 +110,19 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         let rel = format!("{PARTICIPANTS_DIR}/{}", printable(&name));
         let ft = entry.file_type();
         if ft.is_symlink() {
-            diags.push(
-                Diagnostic::warning(rel, "a link in the participants folder is skipped")
-                    .hint("put the participant's folder itself here, not a link to it"),
-            );
+            // Never followed: a link could lead into another participant's folder (whose data
+            // would then appear in this person's report) or anywhere else on the system.
+            let mut d = Diagnostic::error(
+                rel,
+                "the participant folder is a symbolic link; links are not followed, so this participant is not reported",
+            )
+            .expected("a real folder holding the participant's files")
+            .found("a symbolic link")
+            .hint("move or copy the participant's folder itself into participants/");
+            if let Some(id) = raw_name.to_str().filter(|n| is_plain_id(n)) {
+                d = d.participant(id);
+            }
+            diags.push(d);
             continue;
         }
         if !ft.is_dir() {
@@ -132,7 +146,27 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         }
     }
     dirs.sort();
+    if dirs.is_empty() && diags.is_empty() {
+        // An empty folder is what an unmounted network share looks like: reporting on nobody
+        // would replace last month's reports with empty ones.
+        diags.push(
+            Diagnostic::error(
+                PARTICIPANTS_DIR,
+                "the participants folder holds no participant folders",
+            )
+            .expected("one folder per participant, each with its profile.yaml")
+            .hint("if the folder lives on a network share, check that the share is mounted"),
+        );
+    }
     (dirs, diags)
+}
+
+/// Whether a discovery diagnostic concerns the participants folder as a whole (missing,
+/// unreadable or empty): then nothing can be reported, and `check` and `run` both exit 3.
+pub fn is_folder_error(d: &Diagnostic) -> bool {
+    d.severity == crate::diag::Severity::Error
+        && d.participant.is_none()
+        && d.file == PARTICIPANTS_DIR
 }
 
 /// Shows control characters in a name as escapes so a message cannot be garbled by them.
@@ -150,48 +184,70 @@ fn printable(name: &str) -> String {
 
 /// The CSV options of a program.
 pub fn csv_options(program: &Program) -> CsvOptions {
+    let input = &program.def.input;
+    let columns = input
+        .columns
+        .iter()
+        .map(|(kind, map)| {
+            let map = map
+                .iter()
+                .map(|(written, ours)| (table::header_key(written).0, ours.clone()))
+                .collect();
+            (kind.clone(), map)
+        })
+        .collect();
+    let mut activities = crate::activities::LocalTable::default();
+    for (label, a) in &program.def.activities {
+        // load_program has checked that each entry has one usable value.
+        let entry = match (&a.compendium, a.met) {
+            (Some(code), _) => crate::activities::by_compendium_or_code(code)
+                .map(crate::activities::LocalEntry::Compendium),
+            (None, Some(m)) => Some(crate::activities::LocalEntry::Met(m)),
+            (None, None) => None,
+        };
+        if let Some(e) = entry {
+            activities.insert(label, e);
+        }
+    }
     CsvOptions {
         // load_program has checked the delimiter is one ASCII character.
-        delimiter: u8::try_from(program.def.input.delimiter).unwrap_or(b','),
-        date_format: program.def.input.date_format.clone(),
+        delimiter: input.delimiter.and_then(|d| u8::try_from(d).ok()),
+        date_format: input.date_format.clone(),
+        time_zone: input.time_zone.as_deref().and_then(table::LocalZone::parse),
+        columns: std::sync::Arc::new(columns),
+        activities: std::sync::Arc::new(activities),
     }
 }
 
 /// Reads one file of the folder; `None` when it does not exist. Unreadable or non-UTF-8 files
 /// give an error diagnostic.
 ///
-/// `listing` is the folder's entries with their types, when the folder could be listed: it
-/// answers "is there such a file" without two `stat` calls per file (a noticeable part of
-/// loading). Links and unusual entries are still examined through the path.
+/// `listing` is the names in the folder (read through its handle), when it could be listed: it
+/// answers "is there such a file" without an `open` call per missing file. Whatever is there is
+/// opened without following links and refused unless it is a regular file.
 fn read_input(
-    dir: &ParticipantDir,
+    dir: &crate::limits::InputDir,
     name: &str,
-    listing: Option<&[(String, std::fs::FileType)]>,
+    listing: Option<&[String]>,
     ctx: &FileCtx,
     files: &mut Vec<InputFile>,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Result<String, ()>> {
-    let path = dir.path.join(name);
-    let listed = listing.map(|l| l.iter().find(|(n, _)| n == name).map(|(_, t)| *t));
-    let (exists, is_file) = match listed {
-        Some(None) => (false, false),
-        Some(Some(t)) if t.is_file() => (true, true),
-        Some(Some(t)) if t.is_dir() => (true, false),
-        // Not listed, a link or something else: ask the file system (following links).
-        _ => (path.exists(), path.is_file()),
-    };
-    if !exists {
+    if let Some(l) = listing
+        && !l.iter().any(|n| n == name)
+    {
         return None;
     }
-    if !is_file {
-        diags.push(ctx.error(format!("`{name}` is not a file; it cannot be read")));
-        return Some(Err(()));
-    }
-    // Size-limited read (crate::limits): an oversized file is refused before it is read.
-    let bytes = match crate::limits::read_input(&path) {
+    // Opened without following links, regular files only (crate::limits::open_input), and
+    // refused before reading when over the size limit.
+    let bytes = match crate::limits::read_input_in(dir, name) {
         Ok(b) => b,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => return None,
         Err(e) => {
-            diags.push(ctx.error(format!("cannot read the file ({e})")));
+            diags.push(
+                ctx.error(format!("cannot read the file ({e})"))
+                    .hint("this file is left out until it can be read; the participant is reported without it, and other participants are not affected"),
+            );
             return Some(Err(()));
         }
     };
@@ -202,10 +258,26 @@ fn read_input(
     });
     match decode_utf8(&bytes, &ctx.file) {
         Ok(t) => Some(Ok(t.to_string())),
-        Err(d) => {
-            diags.push(d.participant(&ctx.participant));
-            Some(Err(()))
-        }
+        Err(d) => match encoding::decode_legacy(&bytes) {
+            // A legacy 8-bit file (Windows-1252 / Latin-1) is read when it decodes
+            // unambiguously; otherwise the UTF-8 error stands, with how to fix it.
+            Ok((text, chars)) => {
+                diags.push(
+                    ctx.warning(format!(
+                        "the file is not UTF-8; it was read as Windows-1252 (Western European), which gives {chars}"
+                    ))
+                    .hint("check those characters, then save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8)"),
+                );
+                Some(Ok(text))
+            }
+            Err(why) => {
+                let hint = format!(
+                    "{why}; save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8)"
+                );
+                diags.push(d.participant(&ctx.participant).hint(hint));
+                Some(Err(()))
+            }
+        },
     }
 }
 
@@ -231,34 +303,47 @@ pub fn load_participant(
     let mut files = Vec::new();
     let opts = csv_options(program);
 
+    // The folder is opened once without following a link, and its files relative to that
+    // handle: a folder replaced by a link since it was listed is not followed either.
+    let handle = match crate::limits::open_dir(&dir.path) {
+        Ok(h) => h,
+        Err(e) => {
+            diags.push(
+                Diagnostic::error(
+                    format!("{PARTICIPANTS_DIR}/{id}"),
+                    format!("the participant folder cannot be opened ({e}); this participant is not reported"),
+                )
+                .participant(id)
+                .expected("a real folder holding the participant's files"),
+            );
+            return LoadedParticipant {
+                id: dir.id.clone(),
+                data: None,
+                diagnostics: diags,
+                notes: Vec::new(),
+                files,
+            };
+        }
+    };
+
     // The folder's entries: files the tool does not read but that look like inputs are most
     // likely a misspelt name; the listing also tells `read_input` which input files exist. It
-    // is only trusted when every entry could be read with its type.
-    let mut listing: Option<Vec<(String, std::fs::FileType)>> = None;
-    if let Ok(entries) = std::fs::read_dir(&dir.path) {
-        let mut complete = true;
-        let mut typed = Vec::new();
-        let mut names: Vec<String> = Vec::new();
-        for e in entries {
-            let Ok(e) = e else {
-                complete = false;
-                continue;
-            };
-            let name = e.file_name().to_string_lossy().into_owned();
-            match e.file_type() {
-                Ok(t) => typed.push((name.clone(), t)),
-                Err(_) => complete = false,
-            }
-            names.push(name);
-        }
+    // is read through the folder's handle and only trusted when every entry could be read.
+    let mut listing: Option<Vec<String>> = None;
+    if let Ok((mut names, complete)) = crate::limits::list_dir(&handle) {
         if complete {
-            listing = Some(typed);
+            listing = Some(names.clone());
         }
         names.sort();
+        let mut stray = 0usize;
         for n in names {
             let lower = n.to_lowercase();
             let input_like = [".csv", ".yaml", ".yml"].iter().any(|x| lower.ends_with(x));
             if input_like && !n.starts_with('.') && !KNOWN_FILES.contains(&n.as_str()) {
+                stray += 1;
+                if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
+                    continue;
+                }
                 let hint = if lower == "profile.yml" || lower == "profile.yaml" {
                     "rename it to `profile.yaml` (lowercase, .yaml)".to_string()
                 } else {
@@ -276,11 +361,21 @@ pub fn load_participant(
                 );
             }
         }
+        if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
+            diags.push(
+                FileCtx::new(id, format!("{PARTICIPANTS_DIR}/{id}"))
+                    .warning(format!(
+                        "… and {} more files that are not input files the tool reads; they are ignored",
+                        crate::diag::thousands(stray - crate::limits::MAX_DIAGNOSTICS_PER_KIND)
+                    ))
+                    .hint(format!("the files read are {}", KNOWN_FILES.join(", "))),
+            );
+        }
     }
 
     let pctx = FileCtx::new(id, rel(PROFILE_FILE));
     let profile = match read_input(
-        dir,
+        &handle,
         PROFILE_FILE,
         listing.as_deref(),
         &pctx,
@@ -309,11 +404,16 @@ pub fn load_participant(
         withdrew: profile.as_ref().and_then(|p| p.withdrew),
         as_of,
     };
+    // Only the profile (and the folder) can make a participant unusable: a CSV file that
+    // cannot be used is an error for that file, and the participant is reported without it.
+    let profile_usable = !diags.iter().any(|d| d.severity == Severity::Error);
+    let mut notes = Vec::new();
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
             let ctx = FileCtx::new(id, rel($spec.name));
-            match read_input(
-                dir,
+            let first_diag = diags.len();
+            let rows = match read_input(
+                &handle,
                 $spec.name,
                 listing.as_deref(),
                 &ctx,
@@ -325,7 +425,10 @@ pub fn load_participant(
                 Some(Ok(text)) => {
                     $parse(&text, &opts, &ctx, &window, &mut diags).unwrap_or_default()
                 }
-            }
+            };
+            notes.extend(ctx.take_notes());
+            crate::diag::cap_per_kind(&mut diags, first_diag);
+            rows
         }};
     }
     let weights = csv_file!(records::WEIGHTS, records::parse_weights);
@@ -334,9 +437,8 @@ pub fn load_participant(
     let sessions = csv_file!(records::SESSIONS, records::parse_sessions);
     let labs = csv_file!(records::LABS, records::parse_labs);
 
-    let has_errors = diags.iter().any(|d| d.severity == Severity::Error);
     let data = match profile {
-        Some(profile) if !has_errors => Some(ParticipantData {
+        Some(profile) if profile_usable => Some(ParticipantData {
             profile,
             weights,
             intake,
@@ -352,6 +454,7 @@ pub fn load_participant(
         id: dir.id.clone(),
         data,
         diagnostics: diags,
+        notes,
         files,
     }
 }

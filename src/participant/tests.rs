@@ -69,11 +69,13 @@ fn discovery_is_sorted_and_refuses_bad_names() {
         .filter(|d| d.severity == Severity::Error)
         .map(|d| d.file.as_str())
         .collect();
+    #[cfg(unix)]
     assert_eq!(
         errors,
         vec![
             "participants/a..b",
             "participants/bad id",
+            "participants/link",
             "participants/tab\\tname",
             "participants/ünï"
         ]
@@ -84,10 +86,7 @@ fn discovery_is_sorted_and_refuses_bad_names() {
         .map(|d| d.file.as_str())
         .collect();
     #[cfg(unix)]
-    assert_eq!(
-        warnings,
-        vec!["participants/link", "participants/notes.txt"]
-    );
+    assert_eq!(warnings, vec!["participants/notes.txt"]);
 }
 
 #[test]
@@ -156,69 +155,56 @@ fn non_utf8_file_is_an_error_naming_line_and_byte() {
             ("profile.yaml", PROFILE.as_bytes()),
             (
                 "activity.csv",
-                b"date,activity,minutes\n2026-04-01,caf\xE9 walk,30\n",
+                b"date,activity,minutes\n2026-04-01,caf\x81 walk,30\n",
             ),
+            ("weights.csv", b"date,weight,unit\n2026-04-02,80,kg\n"),
         ],
     );
     let lp = load_participant(&p, &dir, as_of());
-    assert!(lp.data.is_none());
+    // The file is lost, not the participant.
+    assert_eq!(lp.data.as_ref().unwrap().weights.len(), 1);
+    assert!(lp.data.as_ref().unwrap().activity.is_empty());
     assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
     let e = &lp.diagnostics[0];
     assert_eq!(e.severity, Severity::Error);
     assert_eq!(e.file, "participants/P1/activity.csv");
     assert_eq!((e.line, e.column), (Some(2), Some(15)));
-    assert!(e.found.as_deref().unwrap().contains("0xE9"));
+    assert!(e.found.as_deref().unwrap().contains("0x81"));
+    assert!(
+        e.hint
+            .as_deref()
+            .unwrap()
+            .contains("save the file as UTF-8"),
+        "{e}"
+    );
     assert_eq!(e.participant.as_deref(), Some("P1"));
     // Files are hashed even when unusable: the manifest records what was read.
-    assert_eq!(lp.files.len(), 2);
+    assert_eq!(lp.files.len(), 3);
 }
 
 #[test]
-fn misspelt_input_files_are_pointed_out() {
+fn a_windows_1252_profile_is_read_with_a_warning() {
     let tmp = tempfile::tempdir().unwrap();
     let p = program(tmp.path());
-    let dir = participant(
-        tmp.path(),
-        "P1",
-        &[("profile.yaml", PROFILE.as_bytes()), ("weight.csv", b"")],
-    );
+    // "Zoë Müller" in Windows-1252: ë = 0xEB, ü = 0xFC.
+    let mut bytes = format!("{PROFILE}name: Zo").into_bytes();
+    bytes.extend_from_slice(b"\xEB M\xFCller\n");
+    let dir = participant(tmp.path(), "P1", &[("profile.yaml", &bytes)]);
     let lp = load_participant(&p, &dir, as_of());
-    assert!(lp.data.is_some());
-    assert_eq!(lp.diagnostics.len(), 1);
+    assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
+    assert_eq!(lp.diagnostics[0].severity, Severity::Warning);
     assert!(
+        lp.diagnostics[0].message.contains("Windows-1252"),
+        "{}",
         lp.diagnostics[0]
-            .message
-            .contains("`weight.csv` is not an input file")
     );
+    assert_eq!(lp.data.unwrap().profile.name.as_deref(), Some("Zoë Müller"));
 }
 
 #[test]
-fn profile_errors_and_withdrawal_window() {
-    let tmp = tempfile::tempdir().unwrap();
-    let p = program(tmp.path());
-    let profile = format!("{PROFILE}withdrew: 2026-06-30\n");
-    let dir = participant(
-        tmp.path(),
-        "P1",
-        &[
-            ("profile.yaml", profile.as_bytes()),
-            (
-                "sessions.csv",
-                b"date,session,attended\n2026-06-30,10,yes\n2026-07-07,11,no\n",
-            ),
-        ],
-    );
-    let lp = load_participant(&p, &dir, as_of());
-    let data = lp.data.unwrap();
-    assert_eq!(data.sessions.len(), 1);
-    assert_eq!(lp.diagnostics.len(), 1);
-    assert_eq!(lp.diagnostics[0].line, Some(3));
-}
-
-#[test]
-fn inputs_found_through_the_folder_listing_links_and_directories() {
-    // The folder listing decides which inputs exist; a link is followed as before, and a
-    // directory with an input's name is an error naming it.
+fn links_fifos_and_directories_are_refused_naming_the_file() {
+    // The folder listing decides which inputs exist; a link, a folder or a FIFO with an input's
+    // name is an error naming it, and nothing is read through it.
     let tmp = tempfile::tempdir().unwrap();
     let p = program(tmp.path());
     let dir = participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
@@ -226,28 +212,81 @@ fn inputs_found_through_the_folder_listing_links_and_directories() {
     fs::write(&elsewhere, "date,weight,unit\n2026-04-02,80,kg\n").unwrap();
     std::os::unix::fs::symlink(&elsewhere, dir.path.join("weights.csv")).unwrap();
     fs::create_dir(dir.path.join("intake.csv")).unwrap();
+    let fifo = std::process::Command::new("mkfifo")
+        .arg(dir.path.join("activity.csv"))
+        .status()
+        .unwrap();
+    assert!(fifo.success());
     let loaded = load_participant(&p, &dir, as_of());
-    assert_eq!(loaded.diagnostics.len(), 1, "{:#?}", loaded.diagnostics);
-    let d = &loaded.diagnostics[0];
-    assert_eq!(d.severity, Severity::Error);
-    assert_eq!(d.file, "participants/P1/intake.csv");
-    assert!(d.message.contains("is not a file"), "{d}");
-    assert!(loaded.data.is_none());
-    // The linked weights file was read (and hashed); absent files were not listed as read.
-    let read: Vec<&str> = loaded.files.iter().map(|f| f.path.as_str()).collect();
-    assert_eq!(
-        read,
-        vec![
-            "participants/P1/profile.yaml",
-            "participants/P1/weights.csv"
-        ]
+    let errors: Vec<(&str, &str)> = loaded
+        .diagnostics
+        .iter()
+        .map(|d| {
+            assert_eq!(d.severity, Severity::Error, "{d}");
+            (d.file.as_str(), d.message.as_str())
+        })
+        .collect();
+    assert_eq!(errors.len(), 3, "{errors:#?}");
+    assert_eq!(errors[0].0, "participants/P1/activity.csv");
+    assert!(
+        errors[0]
+            .1
+            .contains("a FIFO (named pipe), not a regular file"),
+        "{errors:?}"
     );
+    assert_eq!(errors[1].0, "participants/P1/intake.csv");
+    assert!(
+        errors[1].1.contains("a folder, not a regular file"),
+        "{errors:?}"
+    );
+    assert_eq!(errors[2].0, "participants/P1/weights.csv");
+    assert!(errors[2].1.contains("symbolic link"), "{errors:?}");
+    // Each bad file costs that file only: the participant stays usable (without data).
+    assert!(loaded.data.as_ref().unwrap().weights.is_empty());
+    // Only the profile was read.
+    let read: Vec<&str> = loaded.files.iter().map(|f| f.path.as_str()).collect();
+    assert_eq!(read, vec!["participants/P1/profile.yaml"]);
 
-    // Without the directory the participant is usable and has the linked weigh-in.
+    // With real files in their place the participant is usable.
+    for f in ["weights.csv", "activity.csv"] {
+        fs::remove_file(dir.path.join(f)).unwrap();
+    }
     fs::remove_dir(dir.path.join("intake.csv")).unwrap();
+    fs::copy(&elsewhere, dir.path.join("weights.csv")).unwrap();
     let loaded = load_participant(&p, &dir, as_of());
     assert!(loaded.diagnostics.is_empty(), "{:#?}", loaded.diagnostics);
     let data = loaded.data.unwrap();
     assert_eq!(data.weights.len(), 1);
     assert_eq!(data.weights[0].weight.kg(), 80.0);
+}
+
+#[cfg(unix)]
+#[test]
+fn a_folder_swapped_for_a_link_after_listing_is_not_followed() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights: &[u8] = b"date,weight,unit\n2026-04-02,80,kg\n";
+    let other_profile = PROFILE.replace("P1", "P2");
+    let other = participant(
+        tmp.path(),
+        "P2",
+        &[
+            ("profile.yaml", other_profile.as_bytes()),
+            ("weights.csv", weights),
+        ],
+    );
+    let dir = participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    // Listed as a real folder, then replaced by a link to P2's folder before it is read.
+    let (dirs, _) = discover(&p);
+    assert_eq!(dirs.len(), 2);
+    fs::remove_dir_all(&dir.path).unwrap();
+    std::os::unix::fs::symlink(&other.path, &dir.path).unwrap();
+    let loaded = load_participant(&p, &dirs[0], as_of());
+    assert_eq!(loaded.id, "P1");
+    assert!(loaded.data.is_none());
+    assert!(loaded.files.is_empty(), "{:?}", loaded.files);
+    assert_eq!(loaded.diagnostics.len(), 1);
+    let d = &loaded.diagnostics[0];
+    assert_eq!(d.file, "participants/P1");
+    assert!(d.message.contains("symbolic link"), "{d}");
 }

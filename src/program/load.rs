@@ -9,7 +9,6 @@ use crate::diag::Diagnostic;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{ProgramInfo, Targets};
 use std::collections::{BTreeMap, BTreeSet};
-use std::io::Read;
 use std::path::Path;
 
 /// The program file's name, relative to the program folder (as diagnostics show it).
@@ -100,43 +99,16 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 .found(def.program.end.to_string()),
         );
     }
-    let t = &def.targets;
-    for (key, v, lo, hi) in [
-        (
-            "targets.weight_change_percent",
-            t.weight_change_percent,
-            -50.0,
-            50.0,
-        ),
-        (
-            "targets.activity_minutes_per_week",
-            t.activity_minutes_per_week,
-            0.0,
-            3000.0,
-        ),
-        (
-            "targets.weigh_ins_per_week",
-            t.weigh_ins_per_week,
-            0.0,
-            21.0,
-        ),
-        (
-            "targets.food_log_days_per_week",
-            t.food_log_days_per_week,
-            0.0,
-            7.0,
-        ),
-    ] {
-        // Bounds are sanity limits (common practice), not clinical advice.
-        if let Some(v) = v
-            && (!v.is_finite() || v < lo || v > hi)
-        {
-            out.push(
-                err(key, format!("target out of range: {v}"))
-                    .expected(format!("a number from {lo} to {hi}"))
-                    .found(v.to_string()),
-            );
+    for (key, v, lo, hi) in target_problems(&def.targets) {
+        let key = format!("targets.{key}");
+        let mut d = Diagnostic::error(PROGRAM_FILE, format!("target out of range: {v}"))
+            .field(key.as_str())
+            .expected(format!("a number from {lo} to {hi}"))
+            .found(v.to_string());
+        if let Some((l, c)) = key_position(text, &key) {
+            d = d.at(l, c);
         }
+        out.push(d);
     }
     let mut seen = BTreeSet::new();
     let lines = module_lines(text, def.modules.len());
@@ -193,13 +165,156 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
             );
         }
     }
-    let delim = def.input.delimiter;
-    if !delim.is_ascii() || matches!(delim, '"' | '\n' | '\r') || delim.is_ascii_alphanumeric() {
+    let g = &def.guidance;
+    for (key, v, lo, hi) in [
+        (
+            "guidance.loss_bmi_at_least",
+            g.loss_bmi_at_least,
+            18.5,
+            40.0,
+        ),
+        (
+            "guidance.underweight_bmi_below",
+            g.underweight_bmi_below,
+            15.0,
+            25.0,
+        ),
+        (
+            "guidance.max_loss_percent_per_week",
+            g.max_loss_percent_per_week,
+            0.1,
+            2.0,
+        ),
+        (
+            "guidance.min_intake_change_kcal",
+            g.min_intake_change_kcal,
+            10.0,
+            500.0,
+        ),
+        ("guidance.min_walk_minutes", g.min_walk_minutes, 1.0, 60.0),
+        ("guidance.max_walk_minutes", g.max_walk_minutes, 10.0, 240.0),
+    ] {
+        // Sanity limits on the program's own choice (common practice), not clinical advice.
+        if let Some(v) = v
+            && (!v.is_finite() || v < lo || v > hi)
+        {
+            out.push(
+                err(key, format!("guidance setting out of range: {v}"))
+                    .expected(format!("a number from {lo} to {hi}"))
+                    .found(v.to_string()),
+            );
+        }
+    }
+    if let (Some(lo), Some(hi)) = (g.underweight_bmi_below, g.loss_bmi_at_least)
+        && lo >= hi
+    {
+        out.push(
+            err(
+                "guidance.underweight_bmi_below",
+                "the underweight cut-off is not below the loss cut-off".into(),
+            )
+            .expected(format!("a BMI below guidance.loss_bmi_at_least ({hi})"))
+            .found(lo.to_string()),
+        );
+    }
+    if let Some(f) = &def.followup {
+        let r = f.recipient.trim();
+        if r.is_empty() || r.chars().any(char::is_control) || r.chars().count() > 200 {
+            out.push(
+                err(
+                    "followup.recipient",
+                    "the follow-up list needs a recipient in plain words".into(),
+                )
+                .expected("one line of text naming who receives the list, e.g. `Program nurse, North Plant`")
+                .found(format!("{:?}", f.recipient))
+                .hint("the list names participants with clinical flags; say who it is for, or remove `followup:` to turn it off"),
+            );
+        }
+    }
+    if let Some(delim) = def.input.delimiter
+        && (!delim.is_ascii()
+            || matches!(delim, '"' | '\n' | '\r')
+            || delim.is_ascii_alphanumeric())
+    {
         out.push(
             err("input.delimiter", "unusable field delimiter".into())
-                .expected("one ASCII punctuation or whitespace character such as `,`, `;` or a tab, not a quote or newline")
+                .expected("one ASCII punctuation or whitespace character such as `,`, `;` or a tab, not a quote or newline; or no `delimiter` key, to have it recognised per file")
                 .found(format!("{delim:?}")),
         );
+    }
+    if let Some(tz) = &def.input.time_zone
+        && crate::participant::table::LocalZone::parse(tz).is_none()
+    {
+        out.push(
+            err("input.time_zone", "unknown time zone".into())
+                .expected("an IANA time zone name such as `Europe/Berlin` or `America/Chicago`, `UTC`, or an offset such as `+01:00`")
+                .found(format!("`{tz}`")),
+        );
+    }
+    for (kind, map) in &def.input.columns {
+        let Some(spec) = crate::participant::records::ALL_FILES
+            .iter()
+            .find(|f| f.kind() == kind.as_str())
+        else {
+            out.push(
+                err(
+                    &format!("input.columns.{kind}"),
+                    format!("unknown file kind `{kind}`"),
+                )
+                .expected("one of weights, intake, activity, sessions, labs")
+                .found(format!("`{kind}`")),
+            );
+            continue;
+        };
+        for (written, ours) in map {
+            if !spec.all_columns().any(|c| c == ours.as_str()) {
+                out.push(
+                    err(
+                        &format!("input.columns.{kind}"),
+                        format!(
+                            "`{written}` is mapped to `{ours}`, which is not a column of {}",
+                            spec.name
+                        ),
+                    )
+                    .expected(format!(
+                        "one of {}",
+                        spec.all_columns().collect::<Vec<_>>().join(", ")
+                    ))
+                    .found(format!("`{ours}`")),
+                );
+            }
+        }
+    }
+    for (label, a) in &def.activities {
+        let key = format!("activities.{label}");
+        match (&a.compendium, a.met) {
+            (Some(_), Some(_)) | (None, None) => out.push(
+                err(
+                    &key,
+                    "give either `compendium` or `met` for a local activity label".into(),
+                )
+                .expected("`{ compendium: \"17190\" }` or `{ met: 4.5 }`"),
+            ),
+            (Some(code), None) => {
+                if crate::activities::by_compendium_or_code(code).is_none() {
+                    out.push(
+                        err(&key, format!("Compendium code `{code}` is not in the tool's activity table"))
+                            .expected("a 2011 Compendium code listed by the tool (e.g. `17190`), or give a `met` value instead")
+                            .found(format!("`{code}`")),
+                    );
+                }
+            }
+            (None, Some(m)) => {
+                let (lo, hi) = crate::participant::records::MET_RANGE;
+                if !(m.is_finite() && (lo..=hi).contains(&m)) {
+                    out.push(
+                        err(&key, "MET value out of range".into())
+                            .expected(format!("a MET value from {lo} to {hi}"))
+                            .found(m.to_string()),
+                    );
+                }
+            }
+        }
     }
     if let Err(why) = check_date_format(&def.input.date_format) {
         out.push(
@@ -213,21 +328,83 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
     out
 }
 
-/// Checks that `fmt` formats a date and parses it back to the same day.
+/// Checks that `fmt` formats a date (with a time of day and an offset, when it has them) and
+/// parses it back to the same day.
 pub fn check_date_format(fmt: &str) -> Result<(), String> {
+    use chrono::{DateTime, FixedOffset, NaiveDateTime, TimeZone};
     use std::fmt::Write;
     // A day with distinct day, month and year digits, so a format missing one of them cannot
-    // round-trip by accident.
-    let probe = NaiveDate::from_ymd_opt(2031, 12, 25).expect("valid date");
+    // round-trip by accident; a time in the afternoon so `%I` without `%p` is caught.
+    let offset = FixedOffset::east_opt(2 * 3600).expect("valid offset");
+    let probe = offset
+        .with_ymd_and_hms(2031, 12, 25, 19, 47, 0)
+        .single()
+        .expect("valid time");
     let mut s = String::new();
     if write!(s, "{}", probe.format(fmt)).is_err() {
         return Err("it contains an unknown `%` specifier".into());
     }
-    match NaiveDate::parse_from_str(&s, fmt) {
-        Ok(d) if d == probe => Ok(()),
+    let day = probe.date_naive();
+    let read = DateTime::parse_from_str(&s, fmt)
+        .map(|t| t.naive_local())
+        .or_else(|_| NaiveDateTime::parse_from_str(&s, fmt))
+        .map(|t| t.date())
+        .or_else(|_| NaiveDate::parse_from_str(&s, fmt));
+    match read {
+        Ok(d) if d == day => Ok(()),
         Ok(_) => Err("a date does not read back as itself".into()),
         Err(_) => Err("it does not give year, month and day".into()),
     }
+}
+
+/// Sanity ranges of the targets, used for `program.yaml` and for every profile's overrides
+/// alike: (key under `targets:`, lowest, highest). Bounds are sanity limits that catch typing
+/// errors (common practice), not clinical advice.
+pub const TARGET_RANGES: [(&str, f64, f64); 4] = [
+    ("weight_change_percent", -50.0, 50.0),
+    ("activity_minutes_per_week", 0.0, 3000.0),
+    ("weigh_ins_per_week", 0.0, 21.0),
+    ("food_log_days_per_week", 0.0, 7.0),
+];
+
+/// Every target given in `t` that is not a finite number within [`TARGET_RANGES`]:
+/// (key, value, lowest, highest).
+pub fn target_problems(t: &super::TargetsDef) -> Vec<(&'static str, f64, f64, f64)> {
+    let values = [
+        t.weight_change_percent,
+        t.activity_minutes_per_week,
+        t.weigh_ins_per_week,
+        t.food_log_days_per_week,
+    ];
+    TARGET_RANGES
+        .iter()
+        .zip(values)
+        .filter_map(|(&(key, lo, hi), v)| {
+            let v = v?;
+            (!v.is_finite() || v < lo || v > hi).then_some((key, v, lo, hi))
+        })
+        .collect()
+}
+
+/// Line and, when the key is found on it, the 1-based column of the value of the key at
+/// `path` (`targets.weight_change_percent`), for diagnostics.
+pub fn key_position(text: &str, path: &str) -> Option<(u64, Option<u64>)> {
+    let line = key_line(text, path)?;
+    let last = path.rsplit('.').next().unwrap_or(path);
+    let column = text.lines().nth(line as usize - 1).and_then(|l| {
+        let mut from = 0;
+        while let Some(i) = l[from..].find(last) {
+            let after = &l[from + i + last.len()..];
+            let rest = after.trim_start();
+            if let Some(value) = rest.strip_prefix(':') {
+                let at = l.len() - value.trim_start().len();
+                return Some(l[..at].chars().count() as u64 + 1);
+            }
+            from += i + last.len();
+        }
+        None
+    });
+    Some((line, column))
 }
 
 /// Letters, digits, `-` and `_`; not empty; at most 64 characters (it names files).
@@ -238,12 +415,10 @@ pub fn is_plain_id(s: &str) -> bool {
             .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
 }
 
-/// Reads a whole file without ever opening it for writing.
+/// Reads a whole input file without ever opening it for writing, without following a link and
+/// only when it is a regular file within its size limit ([`crate::limits::read_input`]).
 pub fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
-    let mut f = std::fs::OpenOptions::new().read(true).open(path)?;
-    let mut buf = Vec::new();
-    f.read_to_end(&mut buf)?;
-    Ok(buf)
+    crate::limits::read_input(path)
 }
 
 /// Decodes UTF-8 (a leading byte-order mark is skipped); on failure the diagnostic names the
@@ -375,7 +550,36 @@ modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
         assert_eq!(p.info.targets, Targets::default());
         assert_eq!(p.def.modules.len(), 4);
         assert_eq!(p.module_lines.get(&3), Some(&4));
-        assert_eq!(p.def.input.delimiter, ',');
+        assert_eq!(p.def.input.delimiter, None);
+    }
+
+    #[test]
+    fn input_and_activities_keys_are_checked() {
+        let good = format!(
+            "{GOOD}input:\n  time_zone: Europe/Berlin\n  columns:\n    weights: {{ \"Body Weight\": weight }}\nactivities:\n  \"Zumba Gold\": {{ met: 5.5 }}\n  \"Lunch walk\": {{ compendium: \"17190\" }}\n"
+        );
+        let p = parse_program(root(), &good).unwrap();
+        assert_eq!(p.def.input.time_zone.as_deref(), Some("Europe/Berlin"));
+        assert_eq!(p.def.activities.len(), 2);
+        let bad = format!(
+            "{GOOD}input:\n  time_zone: Mars/Olympus\n  columns:\n    weights: {{ \"Body Weight\": mass }}\n    meals: {{ a: kcal }}\nactivities:\n  zumba: {{ met: 50 }}\n  walk: {{ compendium: \"99999\" }}\n  both: {{ met: 3, compendium: \"17190\" }}\n"
+        );
+        let e = parse_program(root(), &bad).unwrap_err();
+        let messages: Vec<&str> = e.iter().map(|d| d.message.as_str()).collect();
+        assert_eq!(e.len(), 6, "{messages:#?}");
+        for words in [
+            "unknown time zone",
+            "`Body Weight` is mapped to `mass`, which is not a column of weights.csv",
+            "unknown file kind `meals`",
+            "MET value out of range",
+            "Compendium code `99999` is not in the tool's activity table",
+            "give either `compendium` or `met`",
+        ] {
+            assert!(
+                messages.iter().any(|m| m.contains(words)),
+                "{words}: {messages:#?}"
+            );
+        }
     }
 
     #[test]
@@ -420,6 +624,30 @@ report:
         assert_eq!(e.len(), 1);
         assert_eq!(e[0].line, Some(5));
         assert_eq!(e[0].found.as_deref(), Some("`colour`"));
+    }
+
+    #[test]
+    fn followup_and_guidance_settings_are_checked_with_their_line() {
+        let ok = format!(
+            "{GOOD}followup:\n  recipient: Program nurse\nguidance:\n  min_walk_minutes: 15\n"
+        );
+        let p = parse_program(root(), &ok).unwrap();
+        assert_eq!(
+            p.def.followup.as_ref().map(|f| f.recipient.as_str()),
+            Some("Program nurse")
+        );
+        assert_eq!(p.def.guidance.min_walk_minutes, Some(15.0));
+        let bad =
+            format!("{GOOD}followup:\n  recipient: '  '\nguidance:\n  loss_bmi_at_least: 60\n");
+        let e = parse_program(root(), &bad).unwrap_err();
+        let good_lines = GOOD.lines().count() as u64;
+        let by = |f: &str| e.iter().find(|d| d.field.as_deref() == Some(f)).unwrap();
+        assert_eq!(by("followup.recipient").line, Some(good_lines + 2));
+        assert_eq!(by("guidance.loss_bmi_at_least").line, Some(good_lines + 4));
+        assert_eq!(e.len(), 2, "{e:#?}");
+        // An unknown key under followup is refused like any other.
+        let typo = format!("{GOOD}followup:\n  recipent: Program nurse\n");
+        assert!(parse_program(root(), &typo).is_err());
     }
 
     #[test]
@@ -469,6 +697,10 @@ input:
 
     #[test]
     fn date_formats_are_checked_by_round_trip() {
+        // Times and offsets are allowed; a 12-hour clock needs its AM/PM.
+        assert!(check_date_format("%Y-%m-%d %H:%M").is_ok());
+        assert!(check_date_format("%d.%m.%Y %H:%M:%S %z").is_ok());
+        assert!(check_date_format("%m/%d/%Y %I:%M %p").is_ok());
         assert!(check_date_format("%Y-%m-%d").is_ok());
         assert!(check_date_format("%d/%m/%Y").is_ok());
         assert!(check_date_format("%m/%d/%Y").is_ok());

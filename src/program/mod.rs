@@ -42,6 +42,45 @@ pub struct ProgramDef {
     /// How input files are read.
     #[serde(default)]
     pub input: InputDef,
+    /// Local activity labels: label → Compendium code or MET value.
+    #[serde(default)]
+    pub activities: BTreeMap<String, ActivityAliasDef>,
+    /// Thresholds of the participant report's guidance (every key optional).
+    #[serde(default)]
+    pub guidance: GuidanceDef,
+    /// The clinician follow-up list: written only when this names its recipient.
+    #[serde(default)]
+    pub followup: Option<FollowupDef>,
+}
+
+/// `guidance:` — thresholds of the decision table in `src/report/guidance.rs`. Every key is
+/// optional; the defaults and their sources are in [`crate::report::guidance::Thresholds`].
+/// Intake floors and the fastest safe loss in kg are the `energy` module's settings
+/// (`intake_floor_female`, `intake_floor_male`, `max_safe_loss_kg_per_week`), so they are set
+/// in one place.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GuidanceDef {
+    /// BMI at or above which loss may still be the goal (default 25, WHO).
+    pub loss_bmi_at_least: Option<f64>,
+    /// BMI below which any further loss is for a clinician (default 18.5, WHO).
+    pub underweight_bmi_below: Option<f64>,
+    /// Fastest loss an option may lead to, % of body weight a week (default 1, common practice).
+    pub max_loss_percent_per_week: Option<f64>,
+    /// Smallest intake change worth proposing, kcal a day (default 100, common practice).
+    pub min_intake_change_kcal: Option<f64>,
+    /// Smallest walking change worth proposing, minutes a day (default 10, common practice).
+    pub min_walk_minutes: Option<f64>,
+    /// Most walking an option may propose, minutes a day (default 60, common practice).
+    pub max_walk_minutes: Option<f64>,
+}
+
+/// `followup:` — who receives the clinician follow-up list.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FollowupDef {
+    /// The person or role the list is for (`Program nurse, North Plant`), printed on it.
+    pub recipient: String,
 }
 
 /// `program:` — identity and dates.
@@ -207,29 +246,52 @@ impl Default for PrivacyDef {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct InputDef {
-    /// chrono format of dates in CSV files (default `%Y-%m-%d`).
+    /// chrono format of dates in CSV files (default `%Y-%m-%d`); may include a time of day
+    /// (`%Y-%m-%d %H:%M`) and an offset (`%z`). ISO 8601 dates and date-times are read whatever
+    /// the format.
     #[serde(default = "default_date_format")]
     pub date_format: String,
-    /// Field delimiter, one character (default `,`).
-    #[serde(default = "default_delimiter")]
-    pub delimiter: char,
+    /// Field delimiter, one character; when left out it is recognised per file (comma,
+    /// semicolon or tab).
+    #[serde(default)]
+    pub delimiter: Option<char>,
+    /// The participants' local time zone (an IANA name such as `Europe/Berlin`, `UTC`, or a
+    /// fixed offset `+01:00`): times stamped in UTC are converted to it to find the local day.
+    #[serde(default)]
+    pub time_zone: Option<String>,
+    /// Column names of exports whose headers differ from ours, per file kind:
+    /// `{ weights: { "Body Weight": weight } }`.
+    #[serde(default)]
+    pub columns: BTreeMap<String, BTreeMap<String, String>>,
 }
 
 fn default_date_format() -> String {
     "%Y-%m-%d".into()
 }
 
-fn default_delimiter() -> char {
-    ','
-}
-
 impl Default for InputDef {
     fn default() -> Self {
         InputDef {
             date_format: default_date_format(),
-            delimiter: default_delimiter(),
+            delimiter: None,
+            time_zone: None,
+            columns: BTreeMap::new(),
         }
     }
+}
+
+/// One entry of `activities:` — a local activity label and what it means: a Compendium code
+/// from the tool's table, or a MET value.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ActivityAliasDef {
+    /// A 2011 Compendium code from the tool's activity table (`17190`), or one of its
+    /// activity codes (`walking_3mph`).
+    #[serde(default)]
+    pub compendium: Option<String>,
+    /// A MET value of the program's own.
+    #[serde(default)]
+    pub met: Option<f64>,
 }
 
 /// A loaded and checked program.

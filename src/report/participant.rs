@@ -2,6 +2,7 @@
 //! built once from the module outputs so both formats print the same figures.
 
 use super::format as fmt;
+use super::guidance::{self, GuidanceView};
 use super::{ChartView, Kv, TableView, cautions};
 use crate::diag::{Diagnostic, Severity};
 use crate::modules::ModuleResults;
@@ -37,8 +38,8 @@ pub struct ParticipantReportContext {
     pub adherence: Option<AdherenceView>,
     /// Plateau assessments, when a plateau was found.
     pub plateaus: Vec<PlateauView>,
-    /// "What it takes" options.
-    pub options: Vec<OptionView>,
+    /// "What to try next": the guidance the decision table chose (see [`super::guidance`]).
+    pub guidance: GuidanceView,
     /// Lab values with categories.
     pub labs: Option<TableView>,
     /// Flags raised by the modules (clinical ones first).
@@ -104,17 +105,6 @@ pub struct PlateauView {
     pub verdict: String,
     /// The numbers behind it.
     pub evidence: String,
-}
-
-/// One "what it takes" option.
-#[derive(Debug, Clone, Serialize)]
-pub struct OptionView {
-    /// The option in plain words.
-    pub text: String,
-    /// Whether it is within safe limits.
-    pub feasible: bool,
-    /// Why not, when not.
-    pub reason: String,
 }
 
 /// A flag shown to the participant.
@@ -233,13 +223,13 @@ pub fn build(
         ));
     }
     if let Some(bmi) = sc(outcomes, "bmi_current_kg_m2") {
-        let cat = outcomes
+        let code = outcomes
             .and_then(|o| o.texts.iter().find(|t| t.name == "bmi_category_current"))
-            .map(|t| t.label.clone())
+            .map(|t| t.value.as_str())
             .unwrap_or_default();
         summary.push(Kv::new(
             "BMI",
-            &format!("{} kg/m², {cat}", fmt::fixed(bmi, 1)),
+            &format!("{} kg/m²{}", fmt::fixed(bmi, 1), bmi_range_words(code)),
         ));
     }
 
@@ -279,7 +269,11 @@ pub fn build(
     // Adherence.
     let (adherence_view, activity_chart) = match adherence {
         Some(a) => {
-            let (v, c) = adherence_section(a, p.targets.activity_minutes_per_week);
+            let (v, c) = adherence_section(
+                a,
+                p.targets.activity_minutes_per_week,
+                &activity_unread(diags),
+            );
             (Some(v), Some(c))
         }
         None => (None, None),
@@ -289,7 +283,7 @@ pub fn build(
     // Only plateaus that reach into the last four weeks before the period: older ones are
     // history (still shaded on the weight chart), not something to act on now.
     let recent = plan.period.from - chrono::Duration::days(28);
-    let plateaus = energy
+    let plateaus: Vec<PlateauView> = energy
         .and_then(|e| e.table("plateau_assessment"))
         .map(|t| {
             t.rows
@@ -310,19 +304,16 @@ pub fn build(
                 .collect()
         })
         .unwrap_or_default();
-    let options = energy
-        .and_then(|e| e.table("options"))
-        .map(|t| {
-            // A row without an amount means the module could not estimate the current balance
-            // (its flag says why): there is no option to offer, so the report says so instead
-            // of proposing "0 kcal less".
-            t.rows
-                .iter()
-                .filter(|r| cell_num(t, r, "change_per_day").is_some())
-                .map(|r| option_view(t, r))
-                .collect()
-        })
-        .unwrap_or_default();
+    let guidance = guidance::build(plan, data, results);
+    // Plateau readings belong with advice to restart a loss; for anyone else (past the target,
+    // regaining, withdrawn, for a clinician first) they would invite the wrong action.
+    // Only the latest plateau: overlapping readings of one stall would say the same thing
+    // several times.
+    let plateaus = if guidance.show_plateaus {
+        plateaus.into_iter().last().into_iter().collect()
+    } else {
+        Vec::new()
+    };
 
     // Labs.
     let labs = outcomes
@@ -370,7 +361,7 @@ pub fn build(
             }
             .into(),
             clinical: f.severity == FlagSeverity::Clinical,
-            message: f.message.clone(),
+            message: fmt::tidy_message(&f.message),
         })
         .collect();
     flags.sort_by_key(|f| match f.severity.as_str() {
@@ -382,14 +373,25 @@ pub fn build(
     let data_notes = diags
         .iter()
         .map(|d| {
-            let sev = if d.severity == Severity::Error {
-                "Not used"
-            } else {
-                "Note"
-            };
             let file = d.file.rsplit('/').next().unwrap_or(&d.file);
             let line = d.line.map(|l| format!(", line {l}")).unwrap_or_default();
-            format!("{sev} — {file}{line}: {}", d.message)
+            if d.severity == Severity::Error {
+                // A whole file was left out: say what this report is missing.
+                let missing = match file {
+                    "weights.csv" => "weigh-ins",
+                    "intake.csv" => "food log",
+                    "activity.csv" => "activity log",
+                    "sessions.csv" => "session attendance",
+                    "labs.csv" => "lab results",
+                    _ => "data",
+                };
+                format!(
+                    "Not used — {file}{line}: {}. This report is without your {missing} from that file.",
+                    d.message
+                )
+            } else {
+                format!("Note — {file}{line}: {}", d.message)
+            }
         })
         .collect();
 
@@ -440,13 +442,13 @@ pub fn build(
         energy: energy_view,
         adherence: adherence_view,
         plateaus,
-        options,
+        guidance,
         labs,
         flags,
         data_notes,
         module_failures,
         extra,
-        cautions: cautions::participant(),
+        cautions: cautions::participant(&guidance::Thresholds::from_plan(plan)),
     };
     ParticipantReport {
         ctx,
@@ -538,33 +540,20 @@ fn plateau_evidence(t: &Table, r: &[Cell], units: UnitSystem) -> String {
     parts.join(" ")
 }
 
-fn option_view(t: &Table, r: &[Cell]) -> OptionView {
-    let kind = cell_str(t, r, "kind");
-    let change = cell_num(t, r, "change_per_day").unwrap_or(0.0);
-    let text = match kind.as_str() {
-        "intake" => format!(
-            "Eat about {} a day less{}",
-            fmt::kcal(change.abs()),
-            cell_num(t, r, "resulting_intake_kcal_per_day")
-                .map(|v| format!(" (about {} a day in all)", fmt::kcal(v)))
-                .unwrap_or_default()
-        ),
-        "walking" => format!(
-            "Walk about {} minutes more a day at an easy pace (about 3 mph / 5 km/h)",
-            fmt::fixed(change.abs(), 0)
-        ),
-        "combined" => format!(
-            "Eat less, down to about {} a day, and walk about {} minutes more a day",
-            fmt::kcal(cell_num(t, r, "resulting_intake_kcal_per_day").unwrap_or(0.0)),
-            fmt::fixed(change.abs(), 0)
-        ),
-        other => format!("{other}: {}", fmt::fixed(change, 0)),
+/// Person-first words for a WHO BMI range (the standard labels stay in the tidy metrics and
+/// group tables): ` — your BMI is in the range the WHO calls …`.
+fn bmi_range_words(code: &str) -> String {
+    // WHO 2000, Technical Report Series 894: cut-offs 18.5, 25, 30, 35, 40.
+    let (name, range) = match code {
+        "underweight" => ("underweight", "below 18.5"),
+        "normal" => ("normal weight", "18.5 to 24.9"),
+        "overweight" => ("pre-obese (overweight)", "25 to 29.9"),
+        "obesity_class_1" => ("obesity class I", "30 to 34.9"),
+        "obesity_class_2" => ("obesity class II", "35 to 39.9"),
+        "obesity_class_3" => ("obesity class III", "40 or more"),
+        _ => return String::new(),
     };
-    OptionView {
-        text,
-        feasible: cell_str(t, r, "feasible") == "yes",
-        reason: cell_str(t, r, "reason"),
-    }
+    format!("; your BMI is in the range {range}, which the WHO calls “{name}”")
 }
 
 fn weight_chart(
@@ -717,7 +706,7 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
         {
             let mut text = fmt::kcal_per_day(v);
             if let (Some(l), Some(u)) = (s.lower, s.upper) {
-                text = format!("{text} (95 % interval {}–{})", l.round(), u.round());
+                text = format!("{text} (95 % interval {}–{})", fmt::int(l), fmt::int(u));
             }
             items.push(Kv::new(label, &text));
         }
@@ -778,7 +767,7 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
             let mut row = vec![fmt::date(d)];
             row.extend(
                 vals.iter()
-                    .map(|v| v.map(|x| fmt::fixed(x, 0)).unwrap_or_else(|| "–".into())),
+                    .map(|v| v.map(fmt::int).unwrap_or_else(|| "–".into())),
             );
             table.rows.push(row);
         }
@@ -822,7 +811,45 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
     (view, chart)
 }
 
-fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
+/// What could not be read of the activity log: `None` when everything was; otherwise how
+/// many rows were dropped, or that the whole file was not used.
+#[derive(Debug, Clone, PartialEq)]
+enum ActivityUnread {
+    Nothing,
+    Rows(u64),
+    File,
+}
+
+fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
+    let mut rows = 0;
+    for d in diags.iter().filter(|d| d.file.ends_with("/activity.csv")) {
+        if d.severity == Severity::Error {
+            return ActivityUnread::File;
+        }
+        // Dropped rows, not duplicates (which were counted once) or ignored values.
+        if d.message.contains("dropped") && !d.message.contains("duplicate") {
+            // "unknown activity `x` in 12 rows (…)" counts its rows; other messages are one row.
+            let n = d
+                .message
+                .split_once("` in ")
+                .and_then(|(_, rest)| rest.split(' ').next())
+                .and_then(|n| n.parse::<u64>().ok())
+                .unwrap_or(1);
+            rows += n;
+        }
+    }
+    if rows == 0 {
+        ActivityUnread::Nothing
+    } else {
+        ActivityUnread::Rows(rows)
+    }
+}
+
+fn adherence_section(
+    a: &ModuleOutput,
+    target: f64,
+    unread: &ActivityUnread,
+) -> (AdherenceView, Chart) {
     let mut items = Vec::new();
     let f1 = |n: &str| a.scalar(n).map(|v| fmt::fixed(v, 1));
     if let Some(v) = f1("weigh_ins_per_week") {
@@ -832,9 +859,30 @@ fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
         items.push(Kv::new("Days with a food log per week", &v));
     }
     if let Some(v) = a.scalar("activity_minutes_per_week") {
+        // Never "0 minutes" when the log could not be read: say so instead.
+        let text = match unread {
+            ActivityUnread::File => {
+                "activity could not be read (activity.csv was not used; see the notes on your data)"
+                    .to_string()
+            }
+            ActivityUnread::Rows(n) if v == 0.0 => format!(
+                "activity could not be read ({n} row{} left out; see the notes on your data)",
+                if *n == 1 { "" } else { "s" }
+            ),
+            ActivityUnread::Rows(n) => format!(
+                "{} (target {}); {n} activity row{} could not be read and {} not counted",
+                fmt::fixed(v, 0),
+                fmt::fixed(target, 0),
+                if *n == 1 { "" } else { "s" },
+                if *n == 1 { "is" } else { "are" }
+            ),
+            ActivityUnread::Nothing => {
+                format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0))
+            }
+        };
         items.push(Kv::new(
             "Activity minutes per week (moderate-equivalent)",
-            &format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0)),
+            &text,
         ));
     }
     if let (Some(att), Some(off)) = (
@@ -911,4 +959,66 @@ fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
         },
         chart,
     )
+}
+
+#[cfg(test)]
+mod activity_unread_tests {
+    use super::*;
+    use cohortpress_metric_api::Scalar;
+
+    fn adherence(minutes: f64) -> ModuleOutput {
+        ModuleOutput {
+            scalars: vec![Scalar {
+                name: "activity_minutes_per_week".into(),
+                value: Some(minutes),
+                unit: "min".into(),
+                lower: None,
+                upper: None,
+                label: "Activity minutes per week".into(),
+            }],
+            ..Default::default()
+        }
+    }
+
+    fn shown(minutes: f64, diags: &[Diagnostic]) -> String {
+        let (view, _) = adherence_section(&adherence(minutes), 150.0, &activity_unread(diags));
+        view.items
+            .iter()
+            .find(|k| k.label.starts_with("Activity minutes"))
+            .unwrap()
+            .value
+            .clone()
+    }
+
+    #[test]
+    fn dropped_activity_rows_are_not_shown_as_zero_minutes() {
+        let file = "participants/P1/activity.csv";
+        let unknown = Diagnostic::warning(
+            file,
+            "unknown activity `zumba gold` in 104 rows (first at line 2); without a MET value the rows are dropped",
+        );
+        assert_eq!(
+            shown(0.0, std::slice::from_ref(&unknown)),
+            "activity could not be read (104 rows left out; see the notes on your data)"
+        );
+        assert_eq!(
+            shown(90.0, &[unknown]),
+            "90 (target 150); 104 activity rows could not be read and are not counted"
+        );
+        let lost = Diagnostic::error(file, "no header row: missing required columns");
+        assert!(
+            shown(0.0, &[lost])
+                .starts_with("activity could not be read (activity.csv was not used")
+        );
+        // Duplicates and other files do not count; a clean log shows its minutes.
+        let dup = Diagnostic::warning(
+            file,
+            "identical to line 3 in every column, time included; the row is dropped as a duplicate",
+        );
+        let other = Diagnostic::warning(
+            "participants/P1/weights.csv",
+            "implausible weight; the row is dropped",
+        );
+        assert_eq!(shown(0.0, &[dup, other]), "0 (target 150)");
+    }
 }

@@ -1,10 +1,15 @@
 //! The one integration-test binary. Each module covers one feature and runs the real
 //! `cohortpress` binary on fixture programs (see `harness.rs`).
 
+mod accessibility;
 mod check;
+mod exports;
 mod external;
+mod fhir;
+mod guidance;
 mod harness;
 mod hostile;
 mod operation;
 mod reports;
 mod sample_program;
+mod unattended;

@@ -18,7 +18,8 @@ use std::sync::OnceLock;
 
 const AS_OF: &str = "2026-12-01";
 
-/// The participant whose context and HTML are snapshotted: a plateau with options, labs and
+/// The participant whose context and HTML are snapshotted: past the target (maintenance
+/// guidance), with labs, a plateau on the chart and
 /// every section filled.
 const SNAPSHOT_ID: &str = "SG-007";
 
@@ -27,7 +28,7 @@ const SNAPSHOT_ID: &str = "SG-007";
 // ---------------------------------------------------------------------------------------------
 
 /// The sample program run once through the binary.
-struct SampleRun {
+pub(crate) struct SampleRun {
     prog: ProgramTest,
     outcome: Outcome,
 }
@@ -37,7 +38,7 @@ impl SampleRun {
         self.prog.dir.join("reports")
     }
 
-    fn read(&self, rel: &str) -> String {
+    pub(crate) fn read(&self, rel: &str) -> String {
         std::fs::read_to_string(self.out().join(rel)).unwrap_or_else(|e| panic!("{rel}: {e}"))
     }
 
@@ -46,7 +47,7 @@ impl SampleRun {
     }
 }
 
-fn sample_run() -> &'static SampleRun {
+pub(crate) fn sample_run() -> &'static SampleRun {
     static RUN: OnceLock<SampleRun> = OnceLock::new();
     RUN.get_or_init(|| {
         let prog = ProgramTest::sample();
@@ -180,7 +181,7 @@ fn key_paths(v: &serde_json::Value, prefix: &str, out: &mut BTreeSet<String>) {
 
 /// The documented paths of one `## …` section of CONTEXT.md: the first code span of every
 /// table row.
-fn documented_paths(doc: &str, section: &str) -> BTreeSet<String> {
+pub(crate) fn documented_paths(doc: &str, section: &str) -> BTreeSet<String> {
     let mut out = BTreeSet::new();
     let mut inside = false;
     for line in doc.lines() {
@@ -201,7 +202,7 @@ fn documented_paths(doc: &str, section: &str) -> BTreeSet<String> {
 /// The leaf key paths of several serialised values together (a path with nothing below it:
 /// `summary[].label`, `labs.rows[][]`, `headline`). Containers are implied by their leaves, so
 /// CONTEXT.md lists leaves only.
-fn context_paths<T: serde::Serialize>(values: &[T]) -> BTreeSet<String> {
+pub(crate) fn context_paths<T: serde::Serialize>(values: &[T]) -> BTreeSet<String> {
     let mut all = BTreeSet::new();
     for v in values {
         key_paths(&serde_json::to_value(v).unwrap(), "", &mut all);
@@ -222,7 +223,11 @@ fn leaves(all: &BTreeSet<String>) -> BTreeSet<String> {
         .collect()
 }
 
-fn assert_same_paths(kind: &str, actual: &BTreeSet<String>, documented: &BTreeSet<String>) {
+pub(crate) fn assert_same_paths(
+    kind: &str,
+    actual: &BTreeSet<String>,
+    documented: &BTreeSet<String>,
+) {
     let undocumented: Vec<_> = actual.difference(documented).collect();
     let stale: Vec<_> = documented.difference(actual).collect();
     assert!(
@@ -417,8 +422,8 @@ fn participant_html_snapshot() {
     let stripped = strip_svg(&html);
     assert_eq!(
         html.matches("<svg").count(),
-        3,
-        "weight, energy and activity charts"
+        6,
+        "weight, energy and activity charts, each drawn wide and narrow"
     );
     insta::with_settings!({filters => vec![(r"cohortpress \d+\.\d+\.\d+\S*", "cohortpress [version]")]}, {
         insta::assert_snapshot!("participant_html_sg007", stripped);
