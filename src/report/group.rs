@@ -253,7 +253,6 @@ pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupRepo
         Kv::new("Small cells", &m.suppression),
         Kv::new("Small groups", &m.small_groups),
     ];
-    let mut sections = sections;
     for sv in &mut sections {
         // One sentence per rule, listing the figures it applied to.
         let mut by_rule: Vec<(&str, Vec<&str>)> = Vec::new();
