@@ -60,7 +60,7 @@ fn main() {
             100.0 * p.underreport,
             en.scalar("underreporting_percent").unwrap_or(f64::NAN),
             tr.text("status").unwrap_or(""),
-            cohortpress_validation::true_plateau_onset(&p.bw),
+            cohortpress_validation::true_plateau_onset(&p.tissue, &p.bw),
         );
     }
 }

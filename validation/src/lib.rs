@@ -140,20 +140,21 @@ fn mean(x: &[f64]) -> f64 {
 /// ±0.25 %/week).
 const BAND_PER_WEEK: f64 = 0.0025;
 
-/// The true plateau onset: the first day after a loss of at least 3 % from which the true
-/// weight's weekly-averaged slope stays inside ±0.25 % of body weight per week for 28 days.
-pub fn true_plateau_onset(bw: &[f64]) -> Option<usize> {
-    let n = bw.len();
-    let smooth: Vec<f64> = (0..n)
-        .map(|t| mean(&bw[t.saturating_sub(3)..(t + 4).min(n)]))
-        .collect();
+/// The true plateau onset: the first day after a loss of at least 3 % of baseline weight from
+/// which the slope of the true tissue mass (centred over 14 days) stays inside ±0.25 % of body
+/// weight per week for 28 days. `tissue` is the slow part of body weight (fat and lean tissue);
+/// `bw` the whole weight, for the band and the loss.
+pub fn true_plateau_onset(tissue: &[f64], bw: &[f64]) -> Option<usize> {
+    let n = tissue.len();
+    let shift = bw[0] - tissue[0];
+    let smooth: Vec<f64> = tissue.iter().map(|x| x + shift).collect();
     let slope = |t: usize| -> Option<f64> {
         (t >= 7 && t + 7 < n - 3).then(|| (smooth[t + 7] - smooth[t - 7]) / 14.0)
     };
     let mut run_min = f64::INFINITY;
     for t in 0..n {
         run_min = run_min.min(smooth[t]);
-        if bw[0] - run_min < 0.03 * bw[0] {
+        if smooth[0] - run_min < 0.03 * bw[0] {
             continue;
         }
         let ok = (t..t + 28).all(|u| {
@@ -259,7 +260,7 @@ pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
     };
 
     // Plateaus.
-    let onset = true_plateau_onset(&p.bw);
+    let onset = true_plateau_onset(&p.tissue, &p.bw);
     let periods = table_rows(&trend, "periods");
     let est_plateau = periods
         .iter()
@@ -296,11 +297,11 @@ pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
     // Regain at the end: the true level now against its lowest point.
     let regain = observed_to_end
         .then(|| {
-            let n = p.bw.len();
-            let smooth_end = mean(&p.bw[n - 7..]);
-            let min = p.bw.iter().copied().fold(f64::INFINITY, f64::min);
-            let rise = smooth_end - min;
-            let lost = p.bw[0] - min >= 0.03 * p.bw[0];
+            let n = p.tissue.len();
+            let rise_now = p.tissue[n - 1];
+            let min = p.tissue.iter().copied().fold(f64::INFINITY, f64::min);
+            let rise = rise_now - min;
+            let lost = p.tissue[0] - min >= 0.03 * p.bw[0];
             let truth = if lost && rise >= 0.02 * p.bw[0] {
                 Some(true)
             } else if rise < 0.005 * p.bw[0] {

@@ -165,6 +165,9 @@ pub struct Person {
     pub withdrew: Option<usize>,
     /// True body weight per day, kg (days 0..n).
     pub bw: Vec<f64>,
+    /// True tissue mass (fat + lean tissue, without glycogen and extracellular water) per day,
+    /// kg: the slow part of body weight that plateaus and regain are judged on.
+    pub tissue: Vec<f64>,
     /// True intake per day, kcal.
     pub intake: Vec<f64>,
     /// True total expenditure per day, kcal.
@@ -353,6 +356,7 @@ pub fn simulate(seed: u64, index: usize, days: usize) -> Person {
         at: 0.0,
     };
     let mut bw = Vec::with_capacity(days);
+    let mut tissue = Vec::with_capacity(days);
     let mut intake = Vec::with_capacity(days);
     let mut tee = Vec::with_capacity(days);
     let mut walks = Vec::new();
@@ -380,6 +384,7 @@ pub fn simulate(seed: u64, index: usize, days: usize) -> Person {
             0.0
         };
         bw.push(phys.weight(&body));
+        tissue.push(body.fat + body.lean);
         // Integrate the day in four explicit steps.
         let h = 0.25;
         let mut e_day = 0.0;
@@ -467,6 +472,7 @@ pub fn simulate(seed: u64, index: usize, days: usize) -> Person {
         underreport,
         withdrew,
         bw,
+        tissue,
         intake,
         tee,
         obs,

@@ -145,6 +145,8 @@ struct TrendPeriod {
 struct Trend {
     level: BTreeMap<NaiveDate, Band>,
     slope: BTreeMap<NaiveDate, Band>,
+    /// Mean slope over the 28 days ending each day (`weight_slope_28d`), when the trend gives it.
+    slope28: BTreeMap<NaiveDate, Band>,
     periods: Vec<TrendPeriod>,
 }
 
@@ -173,6 +175,7 @@ fn parse_trend(out: &ModuleOutput, to: NaiveDate) -> Trend {
     let mut t = Trend {
         level: series_map(out, "weight_trend", to),
         slope: series_map(out, "weight_slope", to),
+        slope28: series_map(out, "weight_slope_28d", to),
         periods: vec![],
     };
     if let Some(table) = out.table("periods") {
@@ -229,6 +232,18 @@ fn mean_band(map: &BTreeMap<NaiveDate, Band>, from: NaiveDate, to: NaiveDate) ->
         lower: mean_opt(&|b| b.lower),
         upper: mean_opt(&|b| b.upper),
     })
+}
+
+/// Mean slope over [from, to] with its 95 % band: the trend's exact 28-day window slope when
+/// the window is 28 days long and the trend gives it, else the mean of the daily slopes and of
+/// their bounds (conservative).
+fn window_slope(t: &Trend, from: NaiveDate, to: NaiveDate) -> Option<Band> {
+    if days_incl(from, to) == 28 {
+        if let Some(b) = t.slope28.get(&to) {
+            return Some(*b);
+        }
+    }
+    mean_band(&t.slope, from, to)
 }
 
 /// 0.975 quantile of Student's t (Cornish–Fisher expansion; within 0.05 of the exact value for
@@ -553,7 +568,7 @@ pub(crate) fn run(
     };
     let slope: Option<Band> = match &fallback {
         Some(fit) => Some(fit.slope),
-        None => mean_band(&p.trend.slope, window_from, to)
+        None => window_slope(&p.trend, window_from, to)
             // Require most of the window to be covered, so a few days do not pass for a month.
             .filter(|_| {
                 p.trend.slope.range(window_from..=to).count() as i64
@@ -917,7 +932,7 @@ fn intake_movement_per_day(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate, w
             break;
         }
         let (Some(sl), Some(w)) = (
-            mean_band(&p.trend.slope, from, end),
+            window_slope(&p.trend, from, end),
             mean_band(&p.trend.level, from, end),
         ) else {
             break;
@@ -1278,7 +1293,7 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
     };
     for per in p.trend.periods.iter().filter(|x| x.kind == "plateau") {
         let during_to = day_after(per.start, s.window_days - 1).min(per.end);
-        let during_slope = mean_band(&p.trend.slope, per.start, during_to);
+        let during_slope = window_slope(&p.trend, per.start, during_to);
         let observed_wk = per.slope_wk.or(during_slope.map(|x| x.value * 7.0));
         let bw_start = per.weight_start.or_else(|| p.weight_on(per.start));
         let bw_during = mean_band(&p.trend.level, per.start, during_to)
@@ -1305,7 +1320,7 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
         let early = if days_incl(e_from, e_to) >= 14 {
             match (
                 mean_band(&p.trend.level, e_from, e_to),
-                mean_band(&p.trend.slope, e_from, e_to),
+                window_slope(&p.trend, e_from, e_to),
             ) {
                 (Some(w), Some(sl)) => {
                     let met = p.activity_met_hours(e_from, e_to);

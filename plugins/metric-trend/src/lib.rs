@@ -35,6 +35,10 @@ use llt::{
 };
 use plateau::{PlateauSettings, WindowKind, classify_window, find_periods};
 
+/// Length of the windows of the `weight_slope_28d` series, days (four whole weeks, so the
+/// weekly weight cycle cancels; REFERENCE §7.3).
+pub const WINDOW_SLOPE_DAYS: usize = 28;
+
 /// The built-in `trend` module.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct TrendModule;
@@ -199,6 +203,42 @@ impl MetricModule for TrendModule {
                     "Smoothed rate of change per day with 95 % band",
                 ),
                 OutputSpec::new("weigh_ins", "series", "kg", "Weigh-ins used for the trend"),
+                OutputSpec::new(
+                    "weight_slope_28d",
+                    "series",
+                    "kg/d",
+                    "Mean rate of change over the 28 days ending each day, with 95 % band",
+                ),
+                OutputSpec::new(
+                    "plateau_confidence",
+                    "scalar",
+                    "",
+                    "Probability (0–1) that the current plateau's mean slope lies in the band",
+                ),
+                OutputSpec::new(
+                    "plateau_onset",
+                    "text",
+                    "",
+                    "Day the trend entered the plateau band (current plateau)",
+                ),
+                OutputSpec::new(
+                    "regain_kg",
+                    "scalar",
+                    "kg",
+                    "Trend weight now minus its lowest point so far, 95 % interval",
+                ),
+                OutputSpec::new(
+                    "regain_confidence",
+                    "scalar",
+                    "",
+                    "Probability (0–1) that the trend has risen more than 1 % of baseline from its lowest point",
+                ),
+                OutputSpec::new(
+                    "regain_verdict",
+                    "text",
+                    "",
+                    "regaining, not_regaining, no_prior_loss or insufficient_data",
+                ),
                 OutputSpec::new(
                     "periods",
                     "table",
@@ -472,7 +512,31 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         label: "Weight change per day".into(),
         points: slope_points,
     });
+    // Mean slope over the four weeks ending each day, with its exact smoothed variance (the
+    // lag covariance of the RTS smoother) × the correlated-scatter inflation: what a 28-day
+    // energy-balance window needs (the mean of daily slope bands would overstate it).
+    let window_points = (1..=last_idx)
+        .filter_map(|i| {
+            let s = i.saturating_sub(WINDOW_SLOPE_DAYS - 1);
+            let (m, sd) = sm.mean_slope(s, i)?;
+            let h = Z_95 * inflation * sd;
+            Some(Point {
+                date: add_days(first, i),
+                value: m,
+                lower: Some(m - h),
+                upper: Some(m + h),
+            })
+        })
+        .collect();
     out.series.push(weigh_in_series(data, to, &skipped_dates));
+    out.series.push(Series {
+        name: "weight_slope_28d".into(),
+        unit: "kg/d".into(),
+        step: "daily".into(),
+        label: "Mean weight change per day over the 28 days ending each day (fewer at the start)"
+            .into(),
+        points: window_points,
+    });
 
     // Periods.
     let periods_now = find_periods(&sm, &has_obs, &settings.plateau);

@@ -307,14 +307,17 @@ pub fn ar1_inflation(r: f64) -> f64 {
 /// Plateaus found retrospectively on the smoothed trajectory.
 ///
 /// # Method
-/// 1. Days whose smoothed slope lies inside the band `±δ_t` (δ_t = band % × μ_t / 7) form runs;
-///    runs separated by fewer than 7 days outside the band are joined (a brief excursion of the
-///    smoothed slope does not end a plateau).
-/// 2. A run is a candidate when it lasts at least `window_days` and the loss reached by its
-///    first day — baseline level minus the lowest level so far — is at least
-///    `min_prior_loss_percent` of baseline. Its **onset** is the run's first day: where the
-///    trend entered the band, confirmed by what follows.
-/// 3. Confidence = P(mean slope over the run ∈ [−δ, δ]) under the smoother's normal
+/// 1. For every day t the mean slope of the smoothed trend over the centred window
+///    `[t − L/2, t + L/2 − 1]` (cut at the ends of the data, at least 14 days) is compared with
+///    the band `±δ_t` (δ_t = band % × μ_t / 7). Centring makes the window's verdict describe day
+///    t itself, so the first day inside the band is where the trend entered it.
+/// 2. Days inside the band form runs; runs separated by fewer than 7 days outside are joined
+///    (a brief excursion does not end a plateau).
+/// 3. A run is a candidate when it lasts at least `window_days` (three quarters of that when it
+///    reaches the last day, which is still going on) and the loss reached by its first day —
+///    baseline level minus the lowest level so far — is at least `min_prior_loss_percent` of
+///    baseline. Its **onset** is the run's first day.
+/// 4. Confidence = P(mean slope over the run ∈ [−δ, δ]) under the smoother's normal
 ///    approximation (SD × `sd_inflation`). With at least 3 weigh-in days in the run and
 ///    confidence ≥ 0.5 the run is a `plateau`; otherwise the data cannot tell a plateau
 ///    from a slow change and the run is `insufficient_data`.
@@ -322,16 +325,26 @@ pub fn ar1_inflation(r: f64) -> f64 {
 /// The defaults are program configuration (REFERENCE §7.3: no consensus definition exists).
 pub fn plateau_runs(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettings) -> Vec<Period> {
     let n = sm.mean.len();
-    if n < 2 {
+    if n < 14 {
         return Vec::new();
     }
     let delta = |t: usize| settings.band_percent_per_week / 100.0 * sm.mean[t][0] / 7.0;
+    let half = (settings.window_days / 2).max(7);
+    let inside = |t: usize| -> bool {
+        let s = t.saturating_sub(half);
+        let e = (t + half - 1).min(n - 1);
+        if e - s < 13 {
+            return false;
+        }
+        sm.mean_slope(s, e)
+            .is_some_and(|(m, _)| m.abs() <= delta(t))
+    };
     let mut runs: Vec<(usize, usize)> = Vec::new();
     let mut t = 0;
     while t < n {
-        if sm.mean[t][1].abs() <= delta(t) {
+        if inside(t) {
             let a = t;
-            while t + 1 < n && sm.mean[t + 1][1].abs() <= delta(t + 1) {
+            while t + 1 < n && inside(t + 1) {
                 t += 1;
             }
             match runs.last_mut() {
@@ -343,15 +356,24 @@ pub fn plateau_runs(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettin
     }
     let baseline = sm.mean[0][0];
     let loss_needed = settings.min_prior_loss_percent / 100.0 * baseline;
+    let mut run_min = Vec::with_capacity(n);
+    let mut cur = f64::INFINITY;
+    for m in &sm.mean {
+        cur = cur.min(m[0]);
+        run_min.push(cur);
+    }
     let mut out = Vec::new();
-    let mut run_min = f64::INFINITY;
-    let mut upto = 0;
-    for (a, b) in runs {
-        while upto <= a {
-            run_min = run_min.min(sm.mean[upto][0]);
-            upto += 1;
-        }
-        if b - a + 1 < settings.window_days || baseline - run_min < loss_needed {
+    for (a0, b) in runs {
+        // The onset is the first day of the run by which the loss has been reached.
+        let Some(a) = (a0..=b).find(|&d| baseline - run_min[d] >= loss_needed) else {
+            continue;
+        };
+        let min_len = if b + 1 == n {
+            (3 * settings.window_days).div_ceil(4)
+        } else {
+            settings.window_days
+        };
+        if b - a + 1 < min_len {
             continue;
         }
         let Some((m, sd)) = sm.mean_slope(a, b) else {
