@@ -688,7 +688,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         "insufficient_data"
     } else if !regain.prior_loss_ok {
         "no_prior_loss"
-    } else if slope_regain || regain.confidence >= 0.95 {
+    } else if slope_regain || regain.confidence >= REGAIN_CONFIDENCE {
         "regaining"
     } else {
         "not_regaining"
@@ -705,6 +705,10 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     );
     out
 }
+
+/// Confidence the level test needs to call a regain (one-sided; program choice: 0.9 keeps false
+/// alarms rare because the test already asks for a rise of more than 1 % of baseline weight).
+const REGAIN_CONFIDENCE: f64 = 0.9;
 
 /// Regain measured by level.
 struct RegainLevel {
@@ -749,7 +753,10 @@ fn regain_by_level(
         rise,
         sd,
         confidence,
-        prior_loss_ok: baseline - min >= settings.min_prior_loss_percent / 100.0 * baseline,
+        // Half the plateau's prior-loss setting: the smoothed level on the first day is itself
+        // uncertain by about 1 % of weight in a diet's first weeks (fast water loss), and a
+        // confirmed rise of more than 1 % from the lowest point is the evidence that matters.
+        prior_loss_ok: baseline - min >= 0.5 * settings.min_prior_loss_percent / 100.0 * baseline,
     }
 }
 
