@@ -71,6 +71,9 @@ const EPS_REL_SD: f64 = 0.15;
 /// band (≈ 270 kcal/d over a quarter; adherence commonly fades over months, Thomas et al. 2014,
 /// Am J Clin Nutr 100:787). Program choice; the person's own movement so far is added to it.
 const INTAKE_DRIFT_PER_DAY: f64 = 3.0;
+/// Share of the current deficit the forecast band's upper edge allows to be given up by the end
+/// of the horizon (program choice; see the forecast in `run`).
+const FADE_SHARE: f64 = 0.5;
 /// Smallest BMI a reported steady state may have: the linearised energy balance is not a model
 /// of starvation (program choice; BMI 16 is the WHO threshold of severe thinness).
 const MIN_STEADY_STATE_BMI: f64 = 16.0;
@@ -767,7 +770,15 @@ pub(crate) fn run(
     if let (Some(i), true) = (implied, horizon > 0) {
         let mid = run_forecast(&|_| i.value);
         let lo = run_forecast(&|d| (i.value - Z_95 * intake_sd_at(d)).max(0.0));
-        let hi = run_forecast(&|d| i.value + Z_95 * intake_sd_at(d));
+        // Adherence fades more often than it grows: the upper edge also gives up half of the
+        // current deficit (below the baseline requirement) by the end of the horizon, the usual
+        // course in programs of six months and longer (Thomas et al. 2014, Am J Clin Nutr
+        // 100:787; program choice of "half").
+        let deficit = (p.model.ei0 - i.value).max(0.0);
+        let hz = horizon.max(1) as f64;
+        let hi = run_forecast(&|d| {
+            i.value + Z_95 * intake_sd_at(d) + FADE_SHARE * deficit * (d as f64 / hz).min(1.0)
+        });
         for (d, w) in mid.iter().enumerate() {
             let widen = |edge: f64| ((edge - w).powi(2) + level_half.powi(2)).sqrt();
             forecast_points.push(Point {
