@@ -266,6 +266,9 @@ pub fn find_periods(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettin
     periods
 }
 
+/// Shortest stretch of days inside the band that counts as the trend being in it, days.
+const MIN_STRETCH_DAYS: usize = 7;
+
 /// Standard normal CDF Φ(x), from the complementary error function approximation of
 /// Abramowitz & Stegun 1964, *Handbook of Mathematical Functions*, 7.1.26 (|error| < 1.5·10⁻⁷).
 pub fn normal_cdf(x: f64) -> f64 {
@@ -339,7 +342,10 @@ pub fn plateau_runs(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettin
         sm.mean_slope(s, e)
             .is_some_and(|(m, _)| m.abs() <= delta(t))
     };
-    let mut runs: Vec<(usize, usize)> = Vec::new();
+    // Stretches inside the band; a stretch of fewer than 7 days is a passing wobble of the
+    // estimate, not an entry into the band (a noisy slope crosses a threshold first earlier
+    // than its mean does), so it neither starts nor joins a run.
+    let mut stretches: Vec<(usize, usize)> = Vec::new();
     let mut t = 0;
     while t < n {
         if inside(t) {
@@ -347,12 +353,18 @@ pub fn plateau_runs(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettin
             while t + 1 < n && inside(t + 1) {
                 t += 1;
             }
-            match runs.last_mut() {
-                Some(last) if a - last.1 - 1 < 7 => last.1 = t,
-                _ => runs.push((a, t)),
+            if t - a + 1 >= MIN_STRETCH_DAYS || t + 1 == n {
+                stretches.push((a, t));
             }
         }
         t += 1;
+    }
+    let mut runs: Vec<(usize, usize)> = Vec::new();
+    for (a, b) in stretches {
+        match runs.last_mut() {
+            Some(last) if a - last.1 - 1 < 7 => last.1 = b,
+            _ => runs.push((a, b)),
+        }
     }
     let baseline = sm.mean[0][0];
     let loss_needed = settings.min_prior_loss_percent / 100.0 * baseline;
