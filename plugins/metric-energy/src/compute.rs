@@ -1125,6 +1125,9 @@ fn options_table(
         p.lin.rho * (target_slope - sl.value)
     };
     let new_intake = imp.value + d_ei;
+    // Checked on the uncertain side: the person may already eat as little as the lower bound
+    // of the implied intake.
+    let new_intake_low = imp.lower.unwrap_or(imp.value) + d_ei;
     let floor = p.floor(s);
     let (feasible, reason) = if too_fast {
         ("no", fast_reason.clone())
@@ -1134,6 +1137,15 @@ fn options_table(
             format!(
                 "It would bring intake to about {new_intake:.0} kcal a day, below {floor:.0} kcal \
                  a day; intakes that low need a clinician's supervision."
+            ),
+        )
+    } else if new_intake_low < floor {
+        (
+            "no",
+            format!(
+                "It would bring intake to about {new_intake:.0} kcal a day, but possibly to \
+                 {new_intake_low:.0} (the low end of the estimate), below {floor:.0} kcal a day; \
+                 intakes that low need a clinician's supervision."
             ),
         )
     } else if already {
@@ -1202,8 +1214,9 @@ fn options_table(
 
     // When eating less alone would go below the floor, the practical answer is both: eat less
     // down to the floor and walk off the rest (same model terms as the two rows above).
-    if !too_fast && !already && new_intake < floor && kcal_per_min > 0.0 {
-        let cut = (imp.value - floor).max(0.0);
+    if !too_fast && !already && new_intake_low < floor && kcal_per_min > 0.0 {
+        // Cut only as far as keeps the low end of the estimate at the floor.
+        let cut = (imp.lower.unwrap_or(imp.value) - floor).max(0.0);
         let rest_kcal = (-d_ei - cut).max(0.0);
         let rest_minutes = (1.0 - BETA) * rest_kcal / kcal_per_min;
         let (feasible, reason) = if rest_minutes > MAX_WALK_MIN {
@@ -1230,7 +1243,7 @@ fn options_table(
             text("combined"),
             num(Some(rest_minutes)),
             text("min/d"),
-            num(Some(floor.min(imp.value))),
+            num(Some(imp.value - cut)),
             text(feasible),
             text(reason),
         ]);
