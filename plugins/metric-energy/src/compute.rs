@@ -1306,9 +1306,9 @@ fn plateau_columns() -> Table {
 /// - **Expected slope**: the linearised model's slope at the plateau's starting weight with the
 ///   early intake held (Hall & Chow 2011).
 /// - `intake_drift` when the change's interval lies above zero; `expected_slowdown` when it
-///   does not and the expected slope's interval reaches the plateau band (the model at the
-///   earlier intake predicts the stall); `undetermined` otherwise, or when the early window
-///   is too short (< 14 days).
+///   does not and the expected slope lies inside the plateau band (the model at the earlier
+///   intake predicts the stall); `undetermined` otherwise (neither shown), or when the early
+///   window is too short (< 14 days).
 fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
     let mut t = plateau_columns();
     let sd_of = |b: &Band| match (b.lower, b.upper) {
@@ -1385,7 +1385,7 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
         let band_half = bw_start.unwrap_or(p.model.bw0) * PLATEAU_BAND_FRACTION_PER_WEEK / 7.0;
         let classification = match (change, expected) {
             (Some((_, lo, _)), _) if lo > 0.0 => "intake_drift",
-            (Some(_), Some((ex, sd))) if ex + Z_95 * sd >= -band_half => "expected_slowdown",
+            (Some(_), Some((ex, _))) if ex >= -band_half => "expected_slowdown",
             _ => "undetermined",
         };
         let f0 = |x: Option<f64>| x.map_or("n/a".to_string(), |v| format!("{v:.0}"));
