@@ -138,8 +138,6 @@ struct TrendPeriod {
     start: NaiveDate,
     end: NaiveDate,
     slope_wk: Option<f64>,
-    lower_wk: Option<f64>,
-    upper_wk: Option<f64>,
     weight_start: Option<f64>,
 }
 
@@ -208,8 +206,6 @@ fn parse_trend(out: &ModuleOutput, to: NaiveDate) -> Trend {
                 start,
                 end: end.min(to),
                 slope_wk: num(row, "slope_kg_per_week"),
-                lower_wk: num(row, "slope_lower_kg_per_week"),
-                upper_wk: num(row, "slope_upper_kg_per_week"),
                 weight_start: num(row, "weight_start_kg"),
             });
         }
@@ -1305,7 +1301,8 @@ fn plateau_columns() -> Table {
 ///   include correlated scatter) and the model's ρ and ε.
 /// - **Expected slope**: the linearised model's slope at the plateau's starting weight with the
 ///   early intake held (Hall & Chow 2011).
-/// - `intake_drift` when the change's interval lies above zero; `expected_slowdown` when it
+/// - `intake_drift` when the change's interval lies above zero and the change is at least
+///   `drift_threshold_kcal_per_day`; `expected_slowdown` when it
 ///   does not and the expected slope lies inside the plateau band (the model at the earlier
 ///   intake predicts the stall); `undetermined` otherwise (neither shown), or when the early
 ///   window is too short (< 14 days).
@@ -1384,7 +1381,7 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
         let expected_wk = expected.map(|x| x.0 * 7.0);
         let band_half = bw_start.unwrap_or(p.model.bw0) * PLATEAU_BAND_FRACTION_PER_WEEK / 7.0;
         let classification = match (change, expected) {
-            (Some((_, lo, _)), _) if lo > 0.0 => "intake_drift",
+            (Some((c, lo, _)), _) if lo > 0.0 && c >= s.drift_threshold => "intake_drift",
             (Some(_), Some((ex, _))) if ex >= -band_half => "expected_slowdown",
             _ => "undetermined",
         };

@@ -114,7 +114,7 @@ impl MetricModule for EnergyModule {
                 "kcal/d",
                 0.0,
                 1000.0,
-                "Rise in implied intake from before to during a plateau that counts as intake drift",
+                "Smallest rise in implied intake, early in the program to the plateau, called intake drift (its 95 % interval must also exclude zero)",
             ),
             SettingSpec::number(
                 "walking_met",
