@@ -432,6 +432,9 @@ pub struct Summary {
     pub cause_correct: Figure,
     /// Share of matched plateaus left "undetermined".
     pub cause_undetermined: Figure,
+    /// Share of matched plateaus given the wrong decided cause (drift for a slowdown or the
+    /// reverse; "undetermined" is not wrong).
+    pub cause_wrong: Figure,
     /// Share of forecasts (day 90 → 180) whose band contains the true weight.
     pub forecast_coverage: Figure,
     /// Median absolute error of total expenditure, kcal/d.
@@ -482,6 +485,10 @@ impl Summary {
             cause_undetermined: prop(
                 o().filter_map(|x| x.cause.clone())
                     .map(|(_, e)| e == "undetermined"),
+            ),
+            cause_wrong: prop(
+                o().filter_map(|x| x.cause.clone())
+                    .map(|(t, e)| e != t && e != "undetermined"),
             ),
             forecast_coverage: prop(
                 o().filter_map(|x| x.forecast)
@@ -601,6 +608,13 @@ pub fn rows() -> Vec<Row> {
             label: "plateau cause left undetermined",
             goal: "—",
             pick: |s| s.cause_undetermined,
+            met: None,
+            percent: true,
+        },
+        Row {
+            label: "plateau cause decided wrongly",
+            goal: "—",
+            pick: |s| s.cause_wrong,
             met: None,
             percent: true,
         },
