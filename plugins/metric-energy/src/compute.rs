@@ -237,10 +237,10 @@ fn mean_band(map: &BTreeMap<NaiveDate, Band>, from: NaiveDate, to: NaiveDate) ->
 /// the window is 28 days long and the trend gives it, else the mean of the daily slopes and of
 /// their bounds (conservative).
 fn window_slope(t: &Trend, from: NaiveDate, to: NaiveDate) -> Option<Band> {
-    if days_incl(from, to) == 28 {
-        if let Some(b) = t.slope28.get(&to) {
-            return Some(*b);
-        }
+    if days_incl(from, to) == 28
+        && let Some(b) = t.slope28.get(&to)
+    {
+        return Some(*b);
     }
     mean_band(&t.slope, from, to)
 }

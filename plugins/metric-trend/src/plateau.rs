@@ -288,7 +288,7 @@ pub fn normal_cdf(x: f64) -> f64 {
 
 /// Probability that a normal quantity with mean `m` and SD `sd` lies in `[−delta, delta]`.
 pub fn prob_inside(m: f64, sd: f64, delta: f64) -> f64 {
-    if !(sd > 0.0) {
+    if sd.is_nan() || sd <= 0.0 {
         return if m.abs() <= delta { 1.0 } else { 0.0 };
     }
     (normal_cdf((delta - m) / sd) - normal_cdf((-delta - m) / sd)).clamp(0.0, 1.0)
