@@ -3,7 +3,7 @@
 
 use crate::diag::{self, Diagnostic, Severity};
 use crate::exit_code;
-use crate::participant::{self, LoadedParticipant, PARTICIPANTS_DIR};
+use crate::participant::{self, LoadedParticipant};
 use crate::program::{self, Program};
 use chrono::NaiveDate;
 use rayon::prelude::*;
@@ -25,12 +25,7 @@ pub struct CheckReport {
 impl CheckReport {
     /// Whether nothing can be computed: `program.yaml` is invalid or `participants/` is missing.
     pub fn program_invalid(&self) -> bool {
-        self.program.is_err()
-            || self.discovery.iter().any(|d| {
-                d.severity == Severity::Error
-                    && d.participant.is_none()
-                    && d.file == PARTICIPANTS_DIR
-            })
+        self.program.is_err() || self.discovery.iter().any(participant::is_folder_error)
     }
 
     /// Participants whose data can be used.
@@ -59,19 +54,29 @@ impl CheckReport {
         diag::count(&all)
     }
 
-    /// The exit code this report calls for (see [`crate::exit_code`]).
+    /// The exit code this report calls for (see [`crate::exit_code::Outcome`]).
     pub fn exit_code(&self) -> i32 {
-        if self.program_invalid() {
-            return exit_code::PROGRAM_INVALID;
+        let left_out = self
+            .participants
+            .iter()
+            .filter(|p| p.diagnostics.iter().any(|d| d.severity == Severity::Error))
+            .count()
+            + self
+                .discovery
+                .iter()
+                .filter(|d| d.severity == Severity::Error)
+                .count();
+        let warnings = self
+            .all_diagnostics()
+            .filter(|d| d.severity == Severity::Warning)
+            .count();
+        exit_code::Outcome {
+            program_invalid: self.program_invalid(),
+            participants_left_out: left_out,
+            module_failures: 0,
+            warnings,
         }
-        let (errors, warnings) = self.counts();
-        if errors > 0 {
-            exit_code::PARTICIPANT_ERRORS
-        } else if warnings > 0 {
-            exit_code::WARNINGS
-        } else {
-            exit_code::SUCCESS
-        }
+        .exit_code()
     }
 
     /// The one-line summary printed last.

@@ -5,7 +5,7 @@ use serde::Serialize;
 use std::fmt;
 
 /// How bad a problem is.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Severity {
     /// A value was dropped or looks wrong; the rest of the file or participant is still used.
@@ -135,25 +135,54 @@ impl fmt::Display for Diagnostic {
             Severity::Error => "error",
             Severity::Warning => "warning",
         };
-        write!(f, "{sev}: {}: {}", self.location(), self.message)?;
+        // Every part may hold text from an input file: control characters are shown escaped,
+        // so nothing from a file can move the cursor, clear the screen or forge a line.
+        write!(
+            f,
+            "{sev}: {}: {}",
+            printable(&self.location()),
+            printable(&self.message)
+        )?;
         let mut parts = Vec::new();
         if let Some(c) = &self.field {
-            parts.push(format!("in: {c}"));
+            parts.push(format!("in: {}", printable(c)));
         }
         if let Some(e) = &self.expected {
-            parts.push(format!("expected: {e}"));
+            parts.push(format!("expected: {}", printable(e)));
         }
         if let Some(x) = &self.found {
-            parts.push(format!("found: {x}"));
+            parts.push(format!("found: {}", printable(x)));
         }
         if !parts.is_empty() {
             write!(f, "\n  {}", parts.join("; "))?;
         }
         if let Some(h) = &self.hint {
-            write!(f, "\n  hint: {h}")?;
+            write!(f, "\n  hint: {}", printable(h))?;
         }
         Ok(())
     }
+}
+
+/// `s` with every control character (C0, DEL, C1, including tab and line breaks) and every
+/// bidirectional-override character shown as an escape (`\u{1b}`, `\n`), for text printed to a
+/// terminal or a log. Text without them is borrowed unchanged.
+pub fn printable(s: &str) -> std::borrow::Cow<'_, str> {
+    let hidden =
+        |c: char| c.is_control() || matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}');
+    if !s.chars().any(hidden) {
+        return std::borrow::Cow::Borrowed(s);
+    }
+    let mut out = String::with_capacity(s.len() + 8);
+    for c in s.chars() {
+        if matches!(c, '\n' | '\r' | '\t') {
+            out.extend(c.escape_default());
+        } else if hidden(c) {
+            out.extend(c.escape_unicode());
+        } else {
+            out.push(c);
+        }
+    }
+    std::borrow::Cow::Owned(out)
 }
 
 /// Counts of errors and warnings in a list of diagnostics.
@@ -163,4 +192,150 @@ pub fn count(diags: &[Diagnostic]) -> (usize, usize) {
         .filter(|d| d.severity == Severity::Error)
         .count();
     (errors, diags.len() - errors)
+}
+
+/// Keeps the first [`crate::limits::MAX_DIAGNOSTICS_PER_KIND`] diagnostics of each kind among
+/// `diags[from..]` (the diagnostics of one file) and replaces the rest of each kind by one
+/// summary, "… and 9,990 more like this: …", at the line of the first one left out. A kind is
+/// the severity, the column and the message with its numbers left out, so "row has 4 fields"
+/// and "row has 5 fields" are one kind.
+pub fn cap_per_kind(diags: &mut Vec<Diagnostic>, from: usize) {
+    use std::collections::HashMap;
+    let max = crate::limits::MAX_DIAGNOSTICS_PER_KIND;
+    if diags.len().saturating_sub(from) <= max {
+        return;
+    }
+    let kind = |d: &Diagnostic| -> (Severity, Option<String>, String) {
+        let shape: String = d
+            .message
+            .chars()
+            .filter(|c| !c.is_ascii_digit() && *c != ',' && *c != '.')
+            .collect();
+        (d.severity, d.field.clone(), shape)
+    };
+    // Per kind: how many seen, and the index of its summary in `summaries` once there is one.
+    let mut seen: HashMap<(Severity, Option<String>, String), (usize, Option<usize>)> =
+        HashMap::new();
+    let tail: Vec<Diagnostic> = diags.drain(from..).collect();
+    // (index in `diags` of the summary, how many it stands for).
+    let mut summaries: Vec<(usize, usize)> = Vec::new();
+    for d in tail {
+        let entry = seen.entry(kind(&d)).or_insert((0, None));
+        entry.0 += 1;
+        if entry.0 <= max {
+            diags.push(d);
+            continue;
+        }
+        match entry.1 {
+            Some(i) => summaries[i].1 += 1,
+            None => {
+                entry.1 = Some(summaries.len());
+                summaries.push((diags.len(), 1));
+                let mut summary = d;
+                summary.expected = None;
+                summary.found = None;
+                summary.column = None;
+                diags.push(summary);
+            }
+        }
+    }
+    for (at, n) in summaries {
+        let d = &mut diags[at];
+        d.message = format!("… and {} more like this: {}", thousands(n), d.message);
+        d.hint = Some(
+            "only the first problems of each kind in a file are listed; fix them and check again"
+                .into(),
+        );
+    }
+}
+
+/// `9990` → `9,990`.
+pub fn thousands(n: usize) -> String {
+    let s = n.to_string();
+    let mut out = String::new();
+    for (i, c) in s.chars().enumerate() {
+        if i > 0 && (s.len() - i) % 3 == 0 {
+            out.push(',');
+        }
+        out.push(c);
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn control_characters_are_shown_escaped() {
+        let d = Diagnostic::warning("p/a\u{1b}[2J.csv", "bad `\u{0}x`")
+            .at(3, Some(1))
+            .found("`\u{1b}]0;title\u{7}\u{9b}\u{202e}abc\n`")
+            .hint("fine");
+        let shown = d.to_string();
+        assert_eq!(
+            shown,
+            "warning: p/a\\u{1b}[2J.csv:3:1: bad `\\u{0}x`\n  found: `\\u{1b}]0;title\\u{7}\\u{9b}\\u{202e}abc\\n`\n  hint: fine"
+        );
+        assert!(!shown.chars().any(|c| c.is_control() && c != '\n'));
+        assert!(matches!(
+            printable("plain – text"),
+            std::borrow::Cow::Borrowed(_)
+        ));
+    }
+
+    #[test]
+    fn thousands_separators() {
+        assert_eq!(thousands(7), "7");
+        assert_eq!(thousands(9990), "9,990");
+        assert_eq!(thousands(1_234_567), "1,234,567");
+    }
+
+    #[test]
+    fn only_the_first_of_each_kind_are_kept_with_a_count() {
+        let mut diags = vec![Diagnostic::error("other.csv", "kept whatever")];
+        for line in 1..=10_000u64 {
+            diags.push(
+                Diagnostic::warning("w.csv", format!("row has {} fields", 4 + line % 3))
+                    .at(line, None)
+                    .found("x"),
+            );
+            if line % 2 == 0 {
+                diags.push(
+                    Diagnostic::warning("w.csv", "`weight` is empty")
+                        .at(line, Some(2))
+                        .field("weight"),
+                );
+            }
+        }
+        cap_per_kind(&mut diags, 1);
+        let max = crate::limits::MAX_DIAGNOSTICS_PER_KIND;
+        assert_eq!(diags.len(), 1 + 2 * (max + 1));
+        assert_eq!(diags[0].file, "other.csv");
+        let summaries: Vec<&Diagnostic> = diags
+            .iter()
+            .filter(|d| d.message.starts_with("… and"))
+            .collect();
+        assert_eq!(summaries.len(), 2);
+        assert_eq!(
+            summaries[0].message,
+            format!(
+                "… and {} more like this: row has 4 fields",
+                thousands(10_000 - max)
+            )
+        );
+        assert_eq!(summaries[0].line, Some(max as u64 + 1));
+        assert!(summaries[0].found.is_none());
+        assert_eq!(
+            summaries[1].message,
+            format!(
+                "… and {} more like this: `weight` is empty",
+                thousands(5_000 - max)
+            )
+        );
+        // Few diagnostics are left alone.
+        let mut few = diags[..5].to_vec();
+        cap_per_kind(&mut few, 0);
+        assert_eq!(few, diags[..5].to_vec());
+    }
 }

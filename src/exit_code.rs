@@ -21,6 +21,38 @@ pub const LOCKED: i32 = 7;
 /// An internal error (a bug): please report it.
 pub const INTERNAL: i32 = 70;
 
+/// What a command found, in the terms the exit codes speak. `check`, `run` and `merge` all map
+/// their outcome to a code through [`Outcome::exit_code`], so the same inputs give the same code
+/// from each of them.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct Outcome {
+    /// `program.yaml` or the participants folder is unusable: nothing can be computed.
+    pub program_invalid: bool,
+    /// Participants (or participant folders) left out because of errors in their inputs.
+    pub participants_left_out: usize,
+    /// Module failures (participant × module); `check` runs no modules.
+    pub module_failures: usize,
+    /// Input warnings (values dropped or suspicious, stray files).
+    pub warnings: usize,
+}
+
+impl Outcome {
+    /// The documented code: the highest that applies.
+    pub fn exit_code(&self) -> i32 {
+        if self.program_invalid {
+            PROGRAM_INVALID
+        } else if self.module_failures > 0 {
+            MODULE_FAILED
+        } else if self.participants_left_out > 0 {
+            PARTICIPANT_ERRORS
+        } else if self.warnings > 0 {
+            WARNINGS
+        } else {
+            SUCCESS
+        }
+    }
+}
+
 /// One line per code, for `--help` and the README.
 pub const TABLE: &[(i32, &str)] = &[
     (

@@ -19,6 +19,7 @@
 pub mod activities;
 pub mod check;
 pub mod cli;
+pub mod csv_out;
 pub mod demo;
 pub mod diag;
 pub mod exit_code;

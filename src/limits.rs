@@ -14,6 +14,26 @@ pub const MAX_CSV_BYTES: u64 = 64 * 1024 * 1024;
 /// Largest YAML input file read (`program.yaml`, `profile.yaml`), in bytes (1 MiB).
 pub const MAX_YAML_BYTES: u64 = 1024 * 1024;
 
+/// Deepest nesting of lists and mappings in a YAML file (a profile nests 2 levels, a program 5).
+pub const MAX_YAML_DEPTH: usize = 32;
+/// Most YAML events (scalars, list and mapping starts and ends) in one file.
+pub const MAX_YAML_EVENTS: u64 = 100_000;
+/// Most aliases (`*name`) in one YAML file.
+pub const MAX_YAML_ALIASES: u64 = 1_000;
+/// Most YAML events once every alias is expanded (what the deserializer really walks).
+pub const MAX_YAML_EXPANDED: u64 = 200_000;
+
+/// Most data rows read from one CSV file (over 130 years of daily rows; a file over it is
+/// refused, the participant left out, and reading stops there).
+pub const MAX_CSV_ROWS: usize = 50_000;
+/// Most columns in a CSV header (an input file has at most 6 known columns; extra columns
+/// from an export are ignored with a warning, up to this many).
+pub const MAX_CSV_COLUMNS: usize = 256;
+/// Longest CSV field, in bytes (a note or a label; longer rows are dropped with a warning).
+pub const MAX_CSV_FIELD_BYTES: usize = 4096;
+/// Diagnostics of one kind kept per file; the rest are counted in one summary line.
+pub const MAX_DIAGNOSTICS_PER_KIND: usize = 20;
+
 /// The limit for a file, by its extension: YAML files get [`MAX_YAML_BYTES`], everything else
 /// [`MAX_CSV_BYTES`].
 pub fn limit_for(path: &Path) -> u64 {
@@ -54,12 +74,92 @@ pub fn too_large_message(size: u64, limit: u64) -> String {
     )
 }
 
+/// Opens an input file for reading without following a link, and refuses anything that is
+/// not a regular file.
+///
+/// On Unix the file is opened with `O_NOFOLLOW` (a symbolic link as the last path component
+/// fails instead of being followed) and `O_NONBLOCK` (opening a FIFO never waits for a writer);
+/// the type is then checked on the opened handle (`fstat`), so nothing can swap the file between
+/// the check and the read. A link, a FIFO, a device, a socket or a folder gives an error whose
+/// message says what was found; nothing is read from it.
+pub fn open_input(path: &Path) -> std::io::Result<std::fs::File> {
+    let mut opts = std::fs::OpenOptions::new();
+    opts.read(true);
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::OpenOptionsExt;
+        opts.custom_flags(libc::O_NOFOLLOW | libc::O_NONBLOCK | libc::O_NOCTTY);
+    }
+    let f = match opts.open(path) {
+        Ok(f) => f,
+        Err(e) => {
+            // O_NOFOLLOW on a link fails with ELOOP; say so in words (and keep the kind).
+            let is_link = std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink());
+            if is_link {
+                return Err(std::io::Error::new(e.kind(), LINK_MESSAGE));
+            }
+            return Err(e);
+        }
+    };
+    let meta = f.metadata()?;
+    if !meta.is_file() {
+        return Err(std::io::Error::new(
+            std::io::ErrorKind::InvalidInput,
+            not_a_file_message(&meta.file_type()),
+        ));
+    }
+    Ok(f)
+}
+
+/// Why a link is not read.
+pub const LINK_MESSAGE: &str = "it is a symbolic link, and links are not followed (they could \
+    point at another participant's data or at a system file); put the file itself here";
+
+/// Why something that is not a regular file is not read.
+pub fn not_a_file_message(t: &std::fs::FileType) -> String {
+    format!(
+        "it is {}, not a regular file; nothing was read from it (put the file itself here)",
+        kind_of(t)
+    )
+}
+
+/// "a folder", "a FIFO (named pipe)", … for a file type.
+pub fn kind_of(t: &std::fs::FileType) -> &'static str {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::FileTypeExt;
+        if t.is_fifo() {
+            return "a FIFO (named pipe)";
+        }
+        if t.is_char_device() || t.is_block_device() {
+            return "a device";
+        }
+        if t.is_socket() {
+            return "a socket";
+        }
+    }
+    if t.is_symlink() {
+        "a symbolic link"
+    } else if t.is_dir() {
+        "a folder"
+    } else if t.is_file() {
+        "a regular file"
+    } else {
+        "a special file"
+    }
+}
+
 /// Reads a whole input file, refusing it before reading when it is over its limit
-/// ([`limit_for`]). The file is opened read-only. The size is checked on the open file and the
-/// read is capped, so a file that grows while it is read is still refused.
+/// ([`limit_for`]). The file is opened read-only through [`open_input`] (no links, regular files
+/// only). The size is checked on the open file and the read is capped, so a file that grows
+/// while it is read is still refused.
 pub fn read_input(path: &Path) -> std::io::Result<Vec<u8>> {
-    let limit = limit_for(path);
-    let f = std::fs::OpenOptions::new().read(true).open(path)?;
+    read_limited(path, limit_for(path))
+}
+
+/// [`read_input`] with an explicit limit.
+pub fn read_limited(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
+    let f = open_input(path)?;
     let size = f.metadata()?.len();
     if size > limit {
         return Err(std::io::Error::other(too_large_message(size, limit)));
@@ -77,9 +177,9 @@ pub fn read_input(path: &Path) -> std::io::Result<Vec<u8>> {
 
 /// Checks a file's size without reading it (for `program.yaml`, before the program loader
 /// reads it). `Ok` when the file is within its limit or cannot be examined (the loader then
-/// reports why it cannot be read).
+/// reports why it cannot be read). Links are not followed.
 pub fn check_size(path: &Path) -> Result<(), String> {
-    match std::fs::metadata(path) {
+    match std::fs::symlink_metadata(path) {
         Ok(m) if m.is_file() && m.len() > limit_for(path) => {
             Err(too_large_message(m.len(), limit_for(path)))
         }

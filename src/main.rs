@@ -8,7 +8,39 @@ use std::process::ExitCode;
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
-    let code = match cli.command {
+    // A panic anywhere (a bug) ends the command with the documented code 70 and one line on
+    // standard error; a run's staging folder is removed as the stack unwinds, so the previous
+    // output stays as it was.
+    std::panic::set_hook(Box::new(|info| {
+        let place = info
+            .location()
+            .map(|l| format!(" at {}:{}", l.file(), l.line()))
+            .unwrap_or_default();
+        let what = info
+            .payload()
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| info.payload().downcast_ref::<String>().cloned())
+            .unwrap_or_else(|| "panic".into());
+        eprintln!(
+            "internal error (a bug in cohortpress, exit {}): {}{place}; previous outputs were \
+             left intact. Please report it with the log above (run again with \
+             COHORTPRESS_LOG=debug for more).",
+            exit_code::INTERNAL,
+            what.escape_debug()
+        );
+    }));
+    let code = match std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| dispatch(cli))) {
+        Ok(code) => code,
+        Err(_) => exit_code::INTERNAL,
+    };
+    ExitCode::from(code as u8)
+}
+
+/// Runs one command and returns its exit code.
+fn dispatch(cli: Cli) -> i32 {
+    debug_panic_hook();
+    match cli.command {
         Command::Check { program, as_of } => {
             init_logging(false, LogFormat::Text);
             let as_of = as_of.unwrap_or_else(today);
@@ -58,8 +90,16 @@ fn main() -> ExitCode {
                 }
             }
         }
-    };
-    ExitCode::from(code as u8)
+    }
+}
+
+/// Debug builds only: `COHORTPRESS_DEBUG_PANIC=1` panics at the start of a command, so the
+/// test suite can check that a panic maps to exit code 70. Release builds have no such hook.
+fn debug_panic_hook() {
+    #[cfg(debug_assertions)]
+    if std::env::var_os("COHORTPRESS_DEBUG_PANIC").is_some() {
+        panic!("COHORTPRESS_DEBUG_PANIC is set");
+    }
 }
 
 fn today() -> chrono::NaiveDate {

@@ -6,6 +6,14 @@
 //! two renames leaves `.NAME.previous/`, which the next run restores before it starts. The lock
 //! is an OS advisory lock on `.NAME.lock` (`File::try_lock`), so a lock left by a crashed run
 //! never blocks the next one: the OS releases it when the process dies.
+//!
+//! The output folder is owned: a run replaces only a folder that is empty or holds a
+//! cohortpress output (its `manifest.json`, or a shard's `shard.json`), never the program
+//! folder, a folder that contains it, or anything inside its `participants/`. Links are
+//! resolved before any of this is decided, and the lock is taken on the resolved path, so two
+//! names for one folder share one lock. A partial run (`--only`, `--shard`) never replaces a
+//! complete output. Every file and folder is fsync'd before the swap, and a staging folder left
+//! by a failed run is removed when the [`Staging`] value is dropped.
 
 use crate::participant::InputFile;
 use crate::runner::{RunPlan, RunSummary};
@@ -21,6 +29,10 @@ pub enum StagingError {
     /// Another run holds the lock (message form).
     #[error("{0}")]
     Locked(String),
+    /// The output folder may not be written by this run (foreign, the program folder, a
+    /// complete output that a partial run would replace…): nothing was touched.
+    #[error("{0}")]
+    Refused(String),
     /// An I/O error, with the path.
     #[error("{path}: {source}")]
     Io {
@@ -77,6 +89,32 @@ impl Access {
     }
 }
 
+/// What a run puts in its output folder. A partial output never replaces a complete one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum OutputScope {
+    /// Every participant of the program (`run`, `merge`).
+    Complete,
+    /// Only the participants named with `--only`.
+    Only,
+    /// One shard of a split run (`--shard K/N`), to be merged.
+    Shard,
+}
+
+/// The output folder a run asks for, and what it must never touch.
+#[derive(Debug, Clone)]
+pub struct OutputTarget {
+    /// The output folder as given (`--out`, or `report.out` relative to the program folder).
+    pub dir: PathBuf,
+    /// The program folder: neither it, nor a folder containing it, nor anything inside its
+    /// `participants/` may be an output folder.
+    pub program_root: PathBuf,
+    /// What the run writes.
+    pub scope: OutputScope,
+    /// How the user named the folder, for messages (`--out` or `report.out`).
+    pub named_by: &'static str,
+}
+
 /// A staging folder being filled; [`Staging::commit`] swaps it into place.
 pub struct Staging {
     access: Access,
@@ -84,8 +122,14 @@ pub struct Staging {
     dir: PathBuf,
     previous: PathBuf,
     written: Mutex<Vec<OutputFile>>,
+    folders: Mutex<std::collections::BTreeSet<PathBuf>>,
+    committed: bool,
     _lock: File,
 }
+
+/// Marks a staging folder as ours, so a leftover one is removed only if it is ours; removed
+/// before the swap.
+const STAGING_MARKER: &str = ".cohortpress-staging";
 
 /// A file being written into staging; [`StagingFile::finish`] flushes it and records it for
 /// the manifest.
@@ -111,12 +155,16 @@ impl Write for StagingFile<'_> {
 }
 
 impl StagingFile<'_> {
-    /// Flushes the file and records it (path, blake3, size) among the staged outputs.
+    /// Flushes the file to disk (fsync) and records it (path, blake3, size) among the staged
+    /// outputs.
     pub fn finish(mut self) -> Result<OutputFile, StagingError> {
-        self.out.flush().map_err(|source| StagingError::Io {
-            path: self.rel.clone(),
+        let rel = self.rel.clone();
+        let err = |source| StagingError::Io {
+            path: rel.clone(),
             source,
-        })?;
+        };
+        self.out.flush().map_err(err)?;
+        self.out.get_ref().sync_data().map_err(err)?;
         let entry = OutputFile {
             path: self.rel,
             blake3: self.hasher.finalize().to_hex().to_string(),
@@ -138,23 +186,177 @@ pub struct OutputSet {
     pub files: usize,
 }
 
-impl Staging {
-    /// Takes the lock for `out_dir` and prepares an empty owner-only staging folder beside it.
-    pub fn begin(out_dir: &Path) -> Result<Staging, StagingError> {
-        Self::begin_with(out_dir, Access::Owner)
-    }
+/// What an existing folder holds, as far as ownership goes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Existing {
+    /// Nothing: any run may write it.
+    Empty,
+    /// A cohortpress output of this scope.
+    Ours(OutputScope),
+}
 
-    /// [`Staging::begin`] with the given access for everything it creates.
-    pub fn begin_with(out_dir: &Path, access: Access) -> Result<Staging, StagingError> {
+/// Reads what `dir` (an existing folder) holds: empty, one of our outputs, or something else
+/// (`Err` with what was found).
+fn existing_output(dir: &Path) -> Result<Existing, String> {
+    let mut entries = fs::read_dir(dir).map_err(|e| format!("cannot list it ({e})"))?;
+    if entries.next().is_none() {
+        return Ok(Existing::Empty);
+    }
+    let json = |name: &str| -> Option<serde_json::Value> {
+        let f = dir.join(name);
+        // The marker must be a plain file, not a link planted to look like one.
+        let meta = fs::symlink_metadata(&f).ok()?;
+        if !meta.is_file() || meta.len() > 64 << 20 {
+            return None;
+        }
+        serde_json::from_slice(&fs::read(&f).ok()?).ok()
+    };
+    if let Some(m) = json("manifest.json")
+        && m["tool"]
+            .as_str()
+            .is_some_and(|t| t.starts_with("cohortpress "))
+        && m["outputs"].is_array()
+    {
+        let scope = match m["scope"].as_str() {
+            Some("only") => OutputScope::Only,
+            Some("shard") => OutputScope::Shard,
+            _ => OutputScope::Complete,
+        };
+        return Ok(Existing::Ours(scope));
+    }
+    if let Some(s) = json("shard.json")
+        && s["format"].is_u64()
+        && s["shard"].is_u64()
+        && s["key"]["tool"]
+            .as_str()
+            .is_some_and(|t| t.starts_with("cohortpress "))
+    {
+        return Ok(Existing::Ours(OutputScope::Shard));
+    }
+    Err("it is not empty and holds no cohortpress manifest.json".into())
+}
+
+/// The output folder with every link resolved: the folder itself if it exists, else its
+/// (created) parent resolved plus its name.
+fn resolve_output(dir: &Path, named_by: &str) -> Result<PathBuf, StagingError> {
+    let refuse = |what: String| StagingError::Refused(what);
+    match fs::symlink_metadata(dir) {
+        Ok(_) => fs::canonicalize(dir).map_err(|e| {
+            refuse(format!(
+                "the output folder {} ({named_by}) cannot be resolved ({e}); if it is a link, \
+                 its target must exist",
+                dir.display()
+            ))
+        }),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+            let name = dir.file_name().ok_or_else(|| {
+                refuse(format!(
+                    "the output folder {} ({named_by}) has no folder name",
+                    dir.display()
+                ))
+            })?;
+            let parent = match dir.parent() {
+                Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+                _ => PathBuf::from("."),
+            };
+            fs::create_dir_all(&parent).map_err(io(&parent))?;
+            Ok(fs::canonicalize(&parent).map_err(io(&parent))?.join(name))
+        }
+        Err(e) => Err(io(dir)(e)),
+    }
+}
+
+/// Refuses an output folder that is, contains, or lies inside the program's inputs.
+fn check_not_inputs(out: &Path, target: &OutputTarget) -> Result<(), StagingError> {
+    let program = fs::canonicalize(&target.program_root).map_err(io(&target.program_root))?;
+    let participants = program.join(crate::participant::PARTICIPANTS_DIR);
+    let why = if out == program {
+        Some("it is the program folder itself")
+    } else if program.starts_with(out) {
+        Some("it contains the program folder")
+    } else if out.starts_with(&participants) {
+        Some("it lies inside the program's participants/ folder")
+    } else {
+        None
+    };
+    match why {
+        None => Ok(()),
+        Some(why) => Err(StagingError::Refused(format!(
+            "refusing to write the output to {} ({}): {why}, and a run replaces its output \
+             folder as a whole; name a folder of its own, e.g. {}",
+            out.display(),
+            target.named_by,
+            program.join("reports").display()
+        ))),
+    }
+}
+
+/// Refuses to replace an existing output folder that is not ours, or a complete output with a
+/// partial one.
+fn check_replaceable(out_dir: &Path, target: &OutputTarget) -> Result<(), StagingError> {
+    match fs::symlink_metadata(out_dir) {
+        Err(_) => {}
+        Ok(meta) if !meta.is_dir() => {
+            return Err(StagingError::Refused(format!(
+                "refusing to write the output to {} ({}): it is a file, not a folder",
+                out_dir.display(),
+                target.named_by
+            )));
+        }
+        Ok(_) => match existing_output(out_dir) {
+            Ok(Existing::Empty) => {}
+            Ok(Existing::Ours(OutputScope::Complete)) if target.scope != OutputScope::Complete => {
+                return Err(StagingError::Refused(format!(
+                    "refusing to replace the complete output in {} with a partial one \
+                         ({}); give the partial run a folder of its own with --out DIR",
+                    out_dir.display(),
+                    match target.scope {
+                        OutputScope::Only => "--only",
+                        _ => "--shard",
+                    }
+                )));
+            }
+            Ok(Existing::Ours(_)) => {}
+            Err(found) => {
+                return Err(StagingError::Refused(format!(
+                    "refusing to write the output to {} ({}): {found}. A run replaces its \
+                         output folder as a whole, so it only writes to a new folder, an empty \
+                         one, or one a previous run wrote; check the path, or name a new folder",
+                    out_dir.display(),
+                    target.named_by
+                )));
+            }
+        },
+    }
+    Ok(())
+}
+
+impl Staging {
+    /// Takes the lock for the target's output folder (links resolved), checks the folder may
+    /// be replaced by this run, and prepares an empty staging folder beside it.
+    pub fn begin(target: &OutputTarget, access: Access) -> Result<Staging, StagingError> {
+        let out_dir = resolve_output(&target.dir, target.named_by)?;
+        check_not_inputs(&out_dir, target)?;
         let name = out_dir
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
-            .unwrap_or_else(|| "reports".into());
-        let parent = match out_dir.parent() {
-            Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-            _ => PathBuf::from("."),
-        };
-        fs::create_dir_all(&parent).map_err(io(&parent))?;
+            .ok_or_else(|| {
+                StagingError::Refused(format!(
+                    "the output folder {} ({}) has no folder name",
+                    out_dir.display(),
+                    target.named_by
+                ))
+            })?;
+        let parent = out_dir
+            .parent()
+            .map(Path::to_path_buf)
+            .unwrap_or_else(|| PathBuf::from("/"));
+        // Refuse before the lock file is created, so a refused run leaves no trace; checked again
+        // under the lock below, after any recovery.
+        let previous = parent.join(format!(".{name}.previous"));
+        if fs::symlink_metadata(&out_dir).is_ok() || fs::symlink_metadata(&previous).is_err() {
+            check_replaceable(&out_dir, target)?;
+        }
         let lock_path = parent.join(format!(".{name}.lock"));
         let lock = File::options()
             .create(true)
@@ -174,25 +376,45 @@ impl Staging {
             Err(fs::TryLockError::Error(e)) => return Err(io(&lock_path)(e)),
         }
         let dir = parent.join(format!(".{name}.staging"));
-        let previous = parent.join(format!(".{name}.previous"));
         // A run killed between the two renames of a commit left the complete previous output
-        // here: put it back before anything else.
-        if previous.exists() && !out_dir.exists() {
-            fs::rename(&previous, out_dir).map_err(io(out_dir))?;
-        } else if previous.exists() {
-            fs::remove_dir_all(&previous).map_err(io(&previous))?;
+        // here: put it back before anything else. A previous copy beside a complete output is
+        // a removal that failed (a read-only folder, say): finish it.
+        if fs::symlink_metadata(&previous).is_ok() {
+            if fs::symlink_metadata(&out_dir).is_err() {
+                fs::rename(&previous, &out_dir).map_err(io(&out_dir))?;
+            } else if matches!(existing_output(&previous), Ok(Existing::Ours(_))) {
+                remove_ours(&previous)?;
+            } else {
+                return Err(StagingError::Refused(format!(
+                    "{} is in the way of the output swap and is not a cohortpress output; \
+                     move it away",
+                    previous.display()
+                )));
+            }
         }
+        check_replaceable(&out_dir, target)?;
         // Staging left by a killed run: we hold the lock, so nobody else is using it.
-        if dir.exists() {
-            fs::remove_dir_all(&dir).map_err(io(&dir))?;
+        if fs::symlink_metadata(&dir).is_ok() {
+            let ours = fs::symlink_metadata(dir.join(STAGING_MARKER)).is_ok_and(|m| m.is_file());
+            if !ours {
+                return Err(StagingError::Refused(format!(
+                    "{} is in the way of the output staging folder and was not made by \
+                     cohortpress; move it away",
+                    dir.display()
+                )));
+            }
+            remove_ours(&dir)?;
         }
         create_dir(&dir, access)?;
+        new_file(&dir.join(STAGING_MARKER), access)?;
         Ok(Staging {
             access,
-            final_dir: out_dir.to_path_buf(),
+            final_dir: out_dir,
             dir,
             previous,
             written: Mutex::new(Vec::new()),
+            folders: Mutex::new(std::collections::BTreeSet::new()),
+            committed: false,
             _lock: lock,
         })
     }
@@ -235,9 +457,20 @@ impl Staging {
         }
         let path = self.dir.join(rel);
         if let Some(p) = path.parent()
-            && !p.exists()
+            && p != self.dir
         {
-            create_dir(p, self.access)?;
+            let mut folders = self
+                .folders
+                .lock()
+                .expect("no panics while holding the lock");
+            if !folders.contains(p) {
+                create_dir(p, self.access)?;
+                let mut q = p;
+                while q != self.dir {
+                    folders.insert(q.to_path_buf());
+                    q = q.parent().expect("inside staging");
+                }
+            }
         }
         let file = new_file(&path, self.access)?;
         Ok(StagingFile {
@@ -249,8 +482,8 @@ impl Staging {
         })
     }
 
-    /// The output folder this staging folder will replace (its current content is the
-    /// previous complete output, if any).
+    /// The output folder this staging folder will replace (links resolved; its current
+    /// content is the previous complete output, if any).
     pub fn final_dir(&self) -> &Path {
         &self.final_dir
     }
@@ -267,26 +500,86 @@ impl Staging {
     }
 
     /// Moves the staging folder into place (keeping the previous output until the new one is
-    /// there) and releases the lock.
-    pub fn commit(self) -> Result<OutputSet, StagingError> {
+    /// there, every file and folder fsync'd first) and releases the lock.
+    pub fn commit(mut self) -> Result<OutputSet, StagingError> {
         let files = self.files().len();
-        sync_dir(&self.dir);
-        if self.final_dir.exists() {
+        let marker = self.dir.join(STAGING_MARKER);
+        fs::remove_file(&marker).map_err(io(&marker))?;
+        let folders = std::mem::take(
+            &mut *self
+                .folders
+                .lock()
+                .expect("no panics while holding the lock"),
+        );
+        for f in folders.iter().rev() {
+            sync_dir(f)?;
+        }
+        sync_dir(&self.dir)?;
+        if fs::symlink_metadata(&self.final_dir).is_ok() {
             fs::rename(&self.final_dir, &self.previous).map_err(io(&self.final_dir))?;
         }
         fs::rename(&self.dir, &self.final_dir).map_err(io(&self.final_dir))?;
-        if self.previous.exists() {
-            fs::remove_dir_all(&self.previous).map_err(io(&self.previous))?;
+        self.committed = true;
+        if let Some(parent) = self.final_dir.parent() {
+            sync_dir(parent)?;
+        }
+        if fs::symlink_metadata(&self.previous).is_ok()
+            && let Err(e) = remove_ours(&self.previous)
+        {
+            // The new output is in place; the next run finishes the removal.
+            tracing::warn!("the previous output could not be removed yet: {e}");
         }
         Ok(OutputSet { files })
     }
 }
 
-fn sync_dir(dir: &Path) {
-    // Best effort: make the directory entries durable before the swap.
-    if let Ok(f) = File::open(dir) {
-        let _ = f.sync_all();
+impl Drop for Staging {
+    /// A run that fails (or panics) before its commit leaves nothing behind: its staging
+    /// folder is removed, and the previous output was never touched.
+    fn drop(&mut self) {
+        if !self.committed {
+            let _ = remove_ours(&self.dir);
+        }
     }
+}
+
+/// Removes a folder this tool made (staging or a previous output). Folders made read-only
+/// after the fact (by a user or a backup tool) are made writable for the owner first; links
+/// inside are removed, never followed.
+fn remove_ours(dir: &Path) -> Result<(), StagingError> {
+    match fs::remove_dir_all(dir) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+        Err(_) => {
+            make_owner_writable(dir);
+            fs::remove_dir_all(dir).map_err(io(dir))
+        }
+    }
+}
+
+#[cfg(unix)]
+fn make_owner_writable(dir: &Path) {
+    use std::os::unix::fs::PermissionsExt;
+    for entry in walkdir::WalkDir::new(dir)
+        .follow_links(false)
+        .into_iter()
+        .flatten()
+    {
+        if entry.file_type().is_dir()
+            && let Ok(meta) = entry.metadata()
+        {
+            let mode = meta.permissions().mode() | 0o700;
+            let _ = fs::set_permissions(entry.path(), fs::Permissions::from_mode(mode));
+        }
+    }
+}
+
+#[cfg(not(unix))]
+fn make_owner_writable(_dir: &Path) {}
+
+/// Makes a folder's entries durable (fsync of the folder itself).
+fn sync_dir(dir: &Path) -> Result<(), StagingError> {
+    File::open(dir).and_then(|f| f.sync_all()).map_err(io(dir))
 }
 
 #[cfg(unix)]
@@ -331,6 +624,7 @@ struct Manifest<'a> {
     period_from: String,
     period_to: String,
     as_of: String,
+    scope: OutputScope,
     formats: Vec<String>,
     modules: Vec<String>,
     counts: &'a RunSummary,
@@ -352,6 +646,7 @@ pub fn manifest(
         period_from: plan.period.from.to_string(),
         period_to: plan.period.to.to_string(),
         as_of: plan.as_of.to_string(),
+        scope: plan.scope(),
         formats: plan
             .formats
             .iter()

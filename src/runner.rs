@@ -17,7 +17,7 @@ use crate::diag::{Diagnostic, Severity};
 use crate::exit_code;
 use crate::group::{self, GroupOptions, ParticipantSummary};
 use crate::modules::{self, ModuleResults, ModuleSet};
-use crate::output::{Access, OutputSet, Staging, StagingError};
+use crate::output::{Access, OutputScope, OutputSet, OutputTarget, Staging, StagingError};
 use crate::partial::{
     self, DiagRecord, InputRecord, ParticipantRecord, RunKey, SummaryRecord, TidyRecord,
 };
@@ -45,6 +45,8 @@ pub struct RunPlan {
     pub as_of: NaiveDate,
     /// The output folder.
     pub out_dir: PathBuf,
+    /// How the output folder was named (`--out` or `report.out`), for refusals.
+    pub out_named_by: &'static str,
     /// Formats to write.
     pub formats: Vec<Format>,
     /// Only these participant ids (empty = all).
@@ -59,6 +61,45 @@ pub struct RunPlan {
     pub access: Access,
     /// What the results depend on besides each participant's own files.
     pub key: RunKey,
+}
+
+impl RunPlan {
+    /// What this run puts in its output folder.
+    pub fn scope(&self) -> OutputScope {
+        if self.shard.is_some() {
+            OutputScope::Shard
+        } else if !self.only.is_empty() {
+            OutputScope::Only
+        } else {
+            OutputScope::Complete
+        }
+    }
+
+    /// The output folder with what it must never touch.
+    pub fn output_target(&self) -> OutputTarget {
+        OutputTarget {
+            dir: self.out_dir.clone(),
+            program_root: self.program.root.clone(),
+            scope: self.scope(),
+            named_by: self.out_named_by,
+        }
+    }
+
+    /// Takes the output folder for this run (see [`Staging::begin`]). A refusal names the
+    /// folder; its exit code says who named it: the command line (2) or program.yaml (3).
+    pub fn begin_staging(&self) -> Result<Staging, RunError> {
+        Staging::begin(&self.output_target(), self.access).map_err(|e| match e {
+            StagingError::Refused(m) => RunError::Refused {
+                message: m,
+                code: if self.out_named_by == "--out" {
+                    exit_code::USAGE
+                } else {
+                    exit_code::PROGRAM_INVALID
+                },
+            },
+            other => other.into(),
+        })
+    }
 }
 
 /// Seconds spent in each phase of a run, reported in the log only (never in an output file, so
@@ -103,7 +144,7 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
                 "done in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
                 started.elapsed().as_secs_f64(),
                 summary.reported,
-                summary.participants_with_errors,
+                summary.participants_with_errors + summary.skipped_folders,
                 summary.module_failures,
                 summary.warnings,
                 plan.out_dir.display()
@@ -169,9 +210,9 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
     let (program, modules) = load_checked(&args.program)?;
     let as_of = args.as_of.unwrap_or(today);
     let period = resolve_period(&program, as_of, args).map_err(usage)?;
-    let mut out_dir = match &args.out {
-        Some(o) => o.clone(),
-        None => program.root.join(&program.def.report.out),
+    let (mut out_dir, out_named_by) = match &args.out {
+        Some(o) => (o.clone(), "--out"),
+        None => (program.root.join(&program.def.report.out), "report.out"),
     };
     if let (Some(s), None) = (args.shard, &args.out) {
         out_dir = shard::default_shard_out(&out_dir, s);
@@ -209,6 +250,7 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
         period,
         as_of,
         out_dir,
+        out_named_by,
         formats,
         only: args.only.clone(),
         jobs,
@@ -248,9 +290,9 @@ pub fn plan_for_merge(
             }
         });
     }
-    let out_dir = match &args.out {
-        Some(o) => o.clone(),
-        None => program.root.join(&program.def.report.out),
+    let (out_dir, out_named_by) = match &args.out {
+        Some(o) => (o.clone(), "--out"),
+        None => (program.root.join(&program.def.report.out), "report.out"),
     };
     let key = run_key(&program, &modules, period, as_of, &formats)?;
     Ok(RunPlan {
@@ -259,6 +301,7 @@ pub fn plan_for_merge(
         period,
         as_of,
         out_dir,
+        out_named_by,
         formats,
         only,
         jobs: 1,
@@ -407,22 +450,22 @@ pub struct RunSummary {
     pub module_failures: usize,
     /// Input warnings.
     pub warnings: usize,
-    /// Program-level diagnostics (discovery).
+    /// Warnings about the participants folder (stray files, links).
     pub program_warnings: usize,
+    /// Participant folders skipped because their name is not a usable id.
+    pub skipped_folders: usize,
 }
 
 impl RunSummary {
-    /// The documented exit code for this outcome (highest applicable).
+    /// The documented exit code for this outcome (see [`exit_code::Outcome`]).
     pub fn exit_code(&self) -> i32 {
-        if self.module_failures > 0 {
-            exit_code::MODULE_FAILED
-        } else if self.participants_with_errors > 0 {
-            exit_code::PARTICIPANT_ERRORS
-        } else if self.warnings > 0 || self.program_warnings > 0 {
-            exit_code::WARNINGS
-        } else {
-            exit_code::SUCCESS
+        exit_code::Outcome {
+            program_invalid: false,
+            participants_left_out: self.participants_with_errors + self.skipped_folders,
+            module_failures: self.module_failures,
+            warnings: self.warnings + self.program_warnings,
         }
+        .exit_code()
     }
 }
 
@@ -438,6 +481,15 @@ pub enum RunError {
     /// Rendering a report failed (a template error, for instance).
     #[error("rendering failed: {0}")]
     Render(String),
+    /// The run may not write where it was asked to, or cannot run on these inputs; nothing was
+    /// written and the previous output is untouched.
+    #[error("{message}")]
+    Refused {
+        /// What is wrong and what to do.
+        message: String,
+        /// The exit code (usage or program invalid).
+        code: i32,
+    },
 }
 
 impl RunError {
@@ -446,6 +498,7 @@ impl RunError {
         match self {
             RunError::Locked(_) => exit_code::LOCKED,
             RunError::Output(_) | RunError::Render(_) => exit_code::OUTPUT_FAILED,
+            RunError::Refused { code, .. } => *code,
         }
     }
 }
@@ -454,39 +507,69 @@ impl From<StagingError> for RunError {
     fn from(e: StagingError) -> Self {
         match e {
             StagingError::Locked(m) => RunError::Locked(m),
+            StagingError::Refused(m) => RunError::Refused {
+                message: m,
+                code: exit_code::USAGE,
+            },
             other => RunError::Output(other.to_string()),
         }
     }
 }
 
-/// The participant folders a plan covers: discovery, then `--only`, then `--shard`.
-pub fn select_participants(plan: &RunPlan) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
+/// The participant folders a plan covers: discovery, then `--only`, then `--shard`. Refused
+/// (nothing is written) when there is nothing sound to report on: `participants/` missing or
+/// unreadable (exit 3, as `check`), or an `--only` id without a folder (exit 2): a typo must
+/// never produce an empty report.
+pub fn select_participants(
+    plan: &RunPlan,
+) -> Result<(Vec<ParticipantDir>, Vec<Diagnostic>), RunError> {
     let (mut dirs, discovery) = participant::discover(&plan.program);
+    if let Some(d) = discovery.iter().find(|d| participant::is_folder_error(d)) {
+        return Err(RunError::Refused {
+            message: format!(
+                "{}; the previous output was left as it is",
+                d.to_string()
+                    .trim_start_matches("error: ")
+                    .replace('\n', " |")
+            ),
+            code: exit_code::PROGRAM_INVALID,
+        });
+    }
     if !plan.only.is_empty() {
-        let unknown: Vec<&String> = plan
+        let unknown: Vec<&str> = plan
             .only
             .iter()
             .filter(|id| !dirs.iter().any(|d| &d.id == *id))
+            .map(String::as_str)
             .collect();
-        for id in unknown {
-            tracing::warn!("--only {id}: no such participant folder");
+        if !unknown.is_empty() {
+            return Err(RunError::Refused {
+                message: format!(
+                    "--only: no participant folder named {} in {}; nothing was written",
+                    unknown.join(", "),
+                    plan.program
+                        .root
+                        .join(participant::PARTICIPANTS_DIR)
+                        .display()
+                ),
+                code: exit_code::USAGE,
+            });
         }
         dirs.retain(|d| plan.only.contains(&d.id));
     }
     if let Some(s) = plan.shard {
         dirs.retain(|d| s.contains(&d.id));
     }
-    (dirs, discovery)
+    Ok((dirs, discovery))
 }
 
 /// Executes a plan: every participant, then (unless it is a shard) the group step and all
 /// outputs.
 pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
-    let staging = Staging::begin_with(&plan.out_dir, plan.access)?;
+    let (dirs, discovery) = select_participants(plan)?;
     let templates = report::templates::TemplateSet::load(&plan.program)
         .map_err(|e| RunError::Render(e.to_string()))?;
-
-    let (dirs, discovery) = select_participants(plan);
+    let staging = plan.begin_staging()?;
     tracing::info!(
         "program {}: {} participants{}, period {} to {}, as of {}",
         plan.program.info.id,
@@ -608,7 +691,14 @@ fn tally(
 ) {
     let mut summary = RunSummary {
         participants: records.len(),
-        program_warnings: discovery.len(),
+        program_warnings: discovery
+            .iter()
+            .filter(|d| d.severity == Severity::Warning)
+            .count(),
+        skipped_folders: discovery
+            .iter()
+            .filter(|d| d.severity == Severity::Error)
+            .count(),
         ..Default::default()
     };
     let mut all_diags: Vec<Diagnostic> = discovery.to_vec();

@@ -15,7 +15,7 @@
 use crate::cli::MergeArgs;
 use crate::diag::Diagnostic;
 use crate::exit_code;
-use crate::output::{Access, Staging};
+use crate::output::Access;
 use crate::partial::{self, DiagRecord, ParticipantRecord, RunKey};
 use crate::runner::{self, RunError, RunPlan};
 use serde::{Deserialize, Serialize};
@@ -226,7 +226,7 @@ pub fn merge_command(args: &MergeArgs) -> i32 {
                 shards.len(),
                 started.elapsed().as_secs_f64(),
                 summary.reported,
-                summary.participants_with_errors,
+                summary.participants_with_errors + summary.skipped_folders,
                 summary.module_failures,
                 summary.warnings,
                 plan.out_dir.display()
@@ -245,7 +245,7 @@ fn merge(
     dirs: &[PathBuf],
     shards: &[ShardFile],
 ) -> Result<runner::RunSummary, RunError> {
-    let staging = Staging::begin_with(&plan.out_dir, plan.access).map_err(RunError::from)?;
+    let staging = plan.begin_staging()?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();
     let columns = std::sync::Mutex::new(crate::tidy::Columns::new(plan.modules.ids()));

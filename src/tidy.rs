@@ -172,10 +172,11 @@ pub fn render(
     group: &GroupReport,
 ) -> Result<(), Box<dyn std::error::Error + Send + Sync>> {
     let (from, to) = (plan.period.from.to_string(), plan.period.to.to_string());
-    let mut participants = csv::Writer::from_writer(staging.create("metrics/participants.csv")?);
+    let mut participants =
+        crate::csv_out::Writer::from_writer(staging.create("metrics/participants.csv")?);
     let mut json = staging.create("metrics/participants.json")?;
-    let mut weekly = csv::Writer::from_writer(staging.create("metrics/weekly.csv")?);
-    let mut tables = csv::Writer::from_writer(staging.create("metrics/tables.csv")?);
+    let mut weekly = crate::csv_out::Writer::from_writer(staging.create("metrics/weekly.csv")?);
+    let mut tables = crate::csv_out::Writer::from_writer(staging.create("metrics/tables.csv")?);
 
     let mut header = vec![
         "participant_id".to_string(),
@@ -310,7 +311,7 @@ pub fn render(
     weekly.into_inner().map_err(|e| e.to_string())?.finish()?;
     tables.into_inner().map_err(|e| e.to_string())?.finish()?;
 
-    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut w = crate::csv_out::Writer::from_writer(Vec::new());
     w.write_record([
         "severity",
         "participant_id",

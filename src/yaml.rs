@@ -1,11 +1,18 @@
 //! The one place YAML is parsed. Everything else calls [`from_str`], so a maintained fork of the
 //! YAML crate could replace serde_yaml (0.9, no longer updated upstream) here alone.
 //!
-//! serde_yaml's own limits protect us from hostile files: an alias bomb ("billion laughs") stops
-//! with "repetition limit exceeded" and deep nesting with "recursion limit exceeded". Its errors
-//! are turned into a [`Diagnostic`] with line, column, key path and a hint.
+//! serde_yaml's own limits do not protect us from hostile files: its alias "repetition limit"
+//! grows with the file, so one large anchor referenced 20,000 times expands to gigabytes, and
+//! its parser reads a whole 100,000-level nesting before refusing it. So every text first goes
+//! through a budgeted pass over its event stream ([`check_budget`], with the maintained
+//! `saphyr-parser`): events, aliases, nesting depth and the size the document has once every
+//! alias is expanded are counted, and the text is refused as soon as one is over its limit
+//! ([`crate::limits`]), before serde_yaml sees it. Errors are turned into a [`Diagnostic`] with
+//! line, column, key path and a hint.
 
 use crate::diag::Diagnostic;
+use crate::limits::{MAX_YAML_ALIASES, MAX_YAML_DEPTH, MAX_YAML_EVENTS, MAX_YAML_EXPANDED};
+use saphyr_parser::{Event, Parser};
 use serde::de::DeserializeOwned;
 
 /// Parses `text` (the content of `file`, a path relative to the program folder) into `T`.
@@ -15,6 +22,7 @@ use serde::de::DeserializeOwned;
 // A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
 #[allow(clippy::result_large_err)]
 pub fn from_str<T: DeserializeOwned>(text: &str, file: &str) -> Result<T, Diagnostic> {
+    check_budget(text, file)?;
     serde_yaml::from_str(text).map_err(|e| {
         let mut d = to_diagnostic(&e, file);
         // serde_yaml gives no position for "more than one document": point at the separator
@@ -24,6 +32,115 @@ pub fn from_str<T: DeserializeOwned>(text: &str, file: &str) -> Result<T, Diagno
         }
         d
     })
+}
+
+/// Walks the event stream of `text` once, refusing it (with the line and column where a limit
+/// was passed) when it has more than [`MAX_YAML_EVENTS`] events, more than [`MAX_YAML_ALIASES`]
+/// aliases, lists or mappings nested deeper than [`MAX_YAML_DEPTH`], or more than
+/// [`MAX_YAML_EXPANDED`] events once aliases are expanded. Work and memory are bounded by the
+/// limits, whatever the text: the walk stops at the first limit passed.
+///
+/// A syntax error found here is reported here (with its line and column), so serde_yaml only
+/// ever parses text that is within the budget.
+#[allow(clippy::result_large_err)]
+pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
+    // Expanded size of each anchor's node, by anchor id (ids count up from 1 in the order the
+    // anchors appear; 0 means "no anchor").
+    let mut anchor_size: Vec<u64> = Vec::new();
+    // Open lists and mappings: (anchor id, expanded count when it opened).
+    let mut open: Vec<(usize, u64)> = Vec::new();
+    let (mut events, mut aliases, mut expanded) = (0u64, 0u64, 0u64);
+    let set_size = |sizes: &mut Vec<u64>, id: usize, size: u64| {
+        if id > 0 && id <= MAX_YAML_EVENTS as usize {
+            if sizes.len() <= id {
+                sizes.resize(id + 1, 0);
+            }
+            sizes[id] = size;
+        }
+    };
+    for item in Parser::new_from_str(text) {
+        let (event, span) = match item {
+            Ok(x) => x,
+            Err(e) => {
+                let m = e.marker();
+                if e.info().contains("recursion limit") {
+                    // The scanner's own bound on flow nesting (deeper than ours, reached when
+                    // it reads ahead): the same refusal as below.
+                    return Err(too_deep(file).at(m.line() as u64, Some(m.col() as u64 + 1)));
+                }
+                return Err(Diagnostic::error(file, format!("not valid YAML: {}", e.info()))
+                    .at(m.line() as u64, Some(m.col() as u64 + 1))
+                    .hint("check indentation (spaces, not tabs) and quote values containing `:` or `#`"));
+            }
+        };
+        let here =
+            |d: Diagnostic| d.at(span.start.line() as u64, Some(span.start.col() as u64 + 1));
+        events += 1;
+        expanded += 1;
+        match event {
+            Event::Scalar(_, _, anchor, _) => set_size(&mut anchor_size, anchor, 1),
+            Event::SequenceStart(anchor, _) | Event::MappingStart(anchor, _) => {
+                open.push((anchor, expanded - 1));
+                if open.len() > MAX_YAML_DEPTH {
+                    return Err(here(too_deep(file)));
+                }
+            }
+            Event::SequenceEnd | Event::MappingEnd => {
+                if let Some((anchor, start)) = open.pop() {
+                    set_size(&mut anchor_size, anchor, expanded - start);
+                }
+            }
+            Event::Alias(id) => {
+                aliases += 1;
+                if aliases > MAX_YAML_ALIASES {
+                    return Err(here(Diagnostic::error(
+                        file,
+                        format!(
+                            "more than {MAX_YAML_ALIASES} aliases (`*name`); the file was not read further"
+                        ),
+                    ))
+                    .expected(format!("at most {MAX_YAML_ALIASES} aliases"))
+                    .hint("the file repeats YAML aliases (`*name`) too often; write the values out instead"));
+                }
+                // The alias stands for a copy of its anchor's node (itself one event here).
+                let size = anchor_size.get(id).copied().unwrap_or(1).max(1);
+                expanded = expanded.saturating_add(size - 1);
+            }
+            _ => {}
+        }
+        if events > MAX_YAML_EVENTS {
+            return Err(here(Diagnostic::error(
+                file,
+                format!(
+                    "more than {MAX_YAML_EVENTS} values, lists and mappings; the file was not read further"
+                ),
+            ))
+            .expected(format!("at most {MAX_YAML_EVENTS} YAML values"))
+            .hint("check it is the right file; a program or profile file holds a few hundred values"));
+        }
+        if expanded > MAX_YAML_EXPANDED {
+            return Err(here(Diagnostic::error(
+                file,
+                format!(
+                    "aliases (`*name`) expand the file to more than {MAX_YAML_EXPANDED} values; the file was not read further"
+                ),
+            ))
+            .expected(format!("at most {MAX_YAML_EXPANDED} values once aliases are expanded"))
+            .hint("the file expands YAML aliases (`*name`) too many times; write the values out instead"));
+        }
+    }
+    Ok(())
+}
+
+fn too_deep(file: &str) -> Diagnostic {
+    Diagnostic::error(
+        file,
+        format!(
+            "lists and mappings are nested more than {MAX_YAML_DEPTH} levels deep; the file was not read further"
+        ),
+    )
+    .expected(format!("at most {MAX_YAML_DEPTH} levels of nesting"))
+    .hint("the file nests lists or mappings too deeply; flatten it")
 }
 
 /// 1-based line of the `---` (or `...`) marker that ends the first document, if any.
@@ -269,17 +386,51 @@ mod tests {
             text.push_str(&format!("{next}: &{next} [{refs}]\n"));
         }
         let d = from_str::<Value>(&text, "bomb.yaml").unwrap_err();
-        assert!(d.message.contains("repetition limit exceeded"), "{d}");
+        assert!(
+            d.message.contains("expand the file to more than 200000"),
+            "{d}"
+        );
         assert!(d.hint.as_deref().unwrap().contains("alias"));
+        // Refused where the budget ran out (line 6 alone would expand to 664,000 values).
+        assert_eq!(d.line, Some(6), "{d}");
+    }
+
+    #[test]
+    fn one_large_anchor_with_many_aliases_is_refused() {
+        // serde_yaml alone expanded this kind of file to gigabytes: its repetition limit
+        // grows with the file.
+        let big: Vec<String> = (0..2000).map(|i| format!("v{i}")).collect();
+        let mut text = format!("a: &a [{}]\nb: [", big.join(","));
+        text.push_str(&vec!["*a"; 200].join(","));
+        text.push_str("]\n");
+        let d = from_str::<Value>(&text, "p.yaml").unwrap_err();
+        assert!(d.message.contains("expand the file"), "{d}");
+        assert_eq!(d.line, Some(2));
+        // Many small aliases: over the alias count.
+        let text = format!("a: &a 1\nb: [{}]\n", vec!["*a"; 1001].join(","));
+        let d = from_str::<Value>(&text, "p.yaml").unwrap_err();
+        assert!(d.message.contains("more than 1000 aliases"), "{d}");
+        // Within the budget aliases still work.
+        let v: Value = from_str("a: &a [1, 2]\nb: *a\n", "p.yaml").unwrap();
+        assert_eq!(v["b"], v["a"]);
     }
 
     #[test]
     fn deep_nesting_is_refused() {
         let text = format!("{}{}", "[".repeat(100_000), "]".repeat(100_000));
         let d = from_str::<Value>(&text, "deep.yaml").unwrap_err();
-        assert!(d.message.contains("recursion limit exceeded"), "{d}");
+        assert!(d.message.contains("nested more than 32 levels"), "{d}");
         assert_eq!(d.line, Some(1));
         assert!(d.hint.as_deref().unwrap().contains("nests"));
+        let ok = format!("a: {}{}", "[".repeat(31), "]".repeat(31));
+        assert!(from_str::<Value>(&ok, "deep.yaml").is_ok());
+    }
+
+    #[test]
+    fn too_many_events_are_refused() {
+        let text = format!("a: [{}]\n", vec!["1"; 100_001].join(","));
+        let d = from_str::<Value>(&text, "p.yaml").unwrap_err();
+        assert!(d.message.contains("more than 100000 values"), "{d}");
     }
 
     #[test]

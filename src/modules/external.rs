@@ -9,9 +9,15 @@
 //! much — becomes a [`CallError`] with a message an administrator can act on. It never panics
 //! and never blocks the run for longer than the module's timeout.
 //!
-//! What the module gets is kept to what it needs: a minimal environment (`PATH`, `HOME`, `LANG`),
-//! the participant's data without the display name, and only the earlier outputs of the modules
-//! its spec `requires`.
+//! What the module gets is kept to what it needs: a minimal environment (`PATH`, `HOME`, `LANG`,
+//! and `TMPDIR` pointing at its own fresh empty working folder), the participant's data without
+//! the display name, and only the earlier outputs of the modules its spec `requires`. It is
+//! trusted code all the same: it runs as the user and can read what the user can.
+//!
+//! Each call is a process group of its own. The group is killed when the module exits (its
+//! answer is then already in the pipe, so leftover processes holding the pipe cannot delay or
+//! void it), at the timeout, on every other way out of a call, and when the run is interrupted
+//! by SIGINT or SIGTERM; nothing a module starts in its group outlives the call.
 
 use cohortpress_metric_api::protocol::{HostMessage, ModuleMessage, parse_version};
 use cohortpress_metric_api::{
@@ -32,7 +38,8 @@ pub const DEFAULT_TIMEOUT_SECONDS: f64 = 30.0;
 /// anything near this size is a runaway module, and reading it all would only cost memory.
 pub const MAX_OUTPUT_BYTES: usize = 16 * 1024 * 1024;
 
-/// Environment variables passed on to a module; everything else is withheld.
+/// Environment variables passed on to a module; everything else is withheld. `TMPDIR` is set
+/// besides to the module's own empty working folder.
 pub const PASSED_ENVIRONMENT: [&str; 3] = ["PATH", "HOME", "LANG"];
 
 /// Longest stderr line logged (longer lines are cut).
@@ -40,9 +47,14 @@ const MAX_STDERR_LINE_BYTES: usize = 2000;
 /// Stderr lines logged per call; the rest are read and dropped so the module cannot block on a
 /// full pipe, and one line says how many were dropped.
 const MAX_STDERR_LINES_LOGGED: usize = 100;
-/// How long to wait for the stderr reader after the process ended. A module that left a child
-/// process behind holding the pipe open must not hold up the run.
+/// How long to wait for the rest of a pipe after the module itself has exited and its process
+/// group was killed. Normally the pipe closes at once; it stays open only when a process the
+/// module started left the module's process group on purpose, and that must not hold up the run.
 const READER_GRACE: Duration = Duration::from_millis(500);
+/// Where the platform cannot wait for the module's exit without reaping it, how often the exit
+/// is polled instead.
+#[cfg(not(unix))]
+const EXIT_POLL: Duration = Duration::from_millis(20);
 
 /// The host's name and version as sent in `hello`.
 pub fn host_string() -> String {
@@ -70,7 +82,7 @@ impl fmt::Display for CallError {
     }
 }
 
-/// How to start a module: resolved program, arguments, working directory and timeout.
+/// How to start a module: resolved program, arguments and timeout.
 #[derive(Debug, Clone)]
 pub struct Launch {
     /// Module id (for log lines and messages).
@@ -78,9 +90,11 @@ pub struct Launch {
     /// The program: a path resolved against the program folder, or a bare name looked up on
     /// `PATH`.
     pub program: PathBuf,
-    /// Arguments after the program.
+    /// Arguments after the program; relative paths to existing files of the program folder are
+    /// resolved against it (see [`Launch::new`]).
     pub args: Vec<String>,
-    /// Working directory: the program folder.
+    /// The program folder (against which paths in `command` were resolved). The module does not
+    /// run there: each call gets a fresh empty working folder.
     pub dir: PathBuf,
     /// Longest time one call may take.
     pub timeout: Duration,
@@ -89,7 +103,10 @@ pub struct Launch {
 impl Launch {
     /// Builds a launch from a `command:` list. A first element containing `/` is a path and is
     /// resolved against `root` (the program folder), so a program works from any working
-    /// directory; a bare name is looked up on `PATH` as a shell would.
+    /// directory; a bare name is looked up on `PATH` as a shell would. An argument that is a
+    /// relative path (it contains `/` and does not start with `-`) naming an existing file or
+    /// folder in the program folder is passed as that absolute path, so `[python3,
+    /// plugins/steps.py]` works although the module runs in a fresh empty working folder.
     pub fn new(
         id: &str,
         command: &[String],
@@ -102,15 +119,31 @@ impl Launch {
         if first.trim().is_empty() {
             return Err("the first element of `command` is empty; expected a program".into());
         }
+        // The module runs in a folder of its own, so paths into the program folder must not
+        // depend on the current directory.
+        let root = &std::path::absolute(root).unwrap_or_else(|_| root.to_path_buf());
         let program = if first.contains('/') {
             root.join(first)
         } else {
             PathBuf::from(first)
         };
+        let args = rest
+            .iter()
+            .map(|a| {
+                let looks_like_path =
+                    a.contains('/') && !a.starts_with('-') && Path::new(a).is_relative();
+                let in_program = root.join(a);
+                if looks_like_path && in_program.exists() {
+                    in_program.to_string_lossy().into_owned()
+                } else {
+                    a.clone()
+                }
+            })
+            .collect();
         Ok(Launch {
             id: id.to_string(),
             program,
-            args: rest.to_vec(),
+            args,
             dir: root.to_path_buf(),
             timeout,
         })
@@ -119,19 +152,45 @@ impl Launch {
     /// Starts the program, writes `input` to its standard input, and collects its standard
     /// output. Standard error is logged line by line as warnings prefixed by the module id.
     /// Succeeds only when the program exits with status 0 within the timeout.
-    pub fn exchange(&self, input: Vec<u8>) -> Result<Vec<u8>, CallError> {
+    ///
+    /// The module leads a process group of its own and runs in a fresh empty working folder
+    /// (also its `TMPDIR`). When it exits, when it overruns its timeout and on every other way
+    /// out of this function, its whole process group is killed, so nothing it started outlives
+    /// the call, and the folder is removed. Its answer is complete when the module itself has
+    /// exited and either its standard output has closed or `answer_lines` protocol lines have
+    /// arrived: a process it left behind holding the pipe open cannot turn an answer into a
+    /// timeout.
+    pub fn exchange(&self, input: Vec<u8>, answer_lines: usize) -> Result<Vec<u8>, CallError> {
+        // Declared before the process so that it is removed after the process group is killed.
+        let workdir = tempfile::Builder::new()
+            .prefix("cohortpress-module-")
+            .tempdir()
+            .map_err(|e| {
+                CallError::Failed(format!(
+                    "cannot create an empty working folder for it in {}: {e}",
+                    std::env::temp_dir().display()
+                ))
+            })?;
         let mut cmd = Command::new(&self.program);
-        cmd.args(&self.args).current_dir(&self.dir).env_clear();
+        cmd.args(&self.args).current_dir(workdir.path()).env_clear();
         for key in PASSED_ENVIRONMENT {
             if let Some(v) = std::env::var_os(key) {
                 cmd.env(key, v);
             }
         }
+        cmd.env("TMPDIR", workdir.path());
         cmd.stdin(Stdio::piped())
             .stdout(Stdio::piped())
             .stderr(Stdio::piped());
+        #[cfg(unix)]
+        {
+            // A process group of its own (pgid = the module's pid): everything the module starts
+            // joins it, and one kill(-pgid) ends them all.
+            use std::os::unix::process::CommandExt;
+            cmd.process_group(0);
+        }
         let shown = self.program.display().to_string();
-        let mut child = match cmd.spawn() {
+        let child = match cmd.spawn() {
             Ok(c) => c,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
                 // A script whose `#!` interpreter is missing also fails with "not found"; say
@@ -152,10 +211,12 @@ impl Launch {
             }
             Err(e) => return Err(CallError::Failed(format!("cannot start `{shown}`: {e}"))),
         };
+        let mut running = Running::new(child, workdir.path());
+        let (tx, rx) = mpsc::channel();
 
         // Standard input is written from its own thread: a module that never reads must not be
         // able to block us on a full pipe. The pipe closes when the thread drops it.
-        let stdin = child.stdin.take().expect("stdin is piped");
+        let stdin = running.child.stdin.take().expect("stdin is piped");
         let id = self.id.clone();
         std::thread::spawn(move || {
             let mut stdin = stdin;
@@ -165,56 +226,87 @@ impl Launch {
             }
         });
 
-        let stdout = child.stdout.take().expect("stdout is piped");
-        let (out_tx, out_rx) = mpsc::channel();
-        std::thread::spawn(move || {
-            let _ = out_tx.send(read_capped(stdout, MAX_OUTPUT_BYTES));
-        });
+        let stdout = running.child.stdout.take().expect("stdout is piped");
+        let out_tx = tx.clone();
+        std::thread::spawn(move || read_chunks(stdout, &out_tx));
 
-        let stderr = child.stderr.take().expect("stderr is piped");
+        let stderr = running.child.stderr.take().expect("stderr is piped");
         let (err_tx, err_rx) = mpsc::channel();
         let id = self.id.clone();
         std::thread::spawn(move || {
             let _ = err_tx.send(log_stderr(&id, stderr));
         });
 
+        running.watch_exit(tx);
+
         let deadline = Instant::now() + self.timeout;
-        // Standard output closes when the module is done writing; waiting on the reader is
-        // event-driven, so quick modules cost no polling delay.
-        let remaining = deadline.saturating_duration_since(Instant::now());
-        let out = match out_rx.recv_timeout(remaining) {
-            Ok(out) => out,
-            Err(_) => {
-                stop(&mut child);
-                return Err(self.timed_out());
+        let mut out = Vec::new();
+        let mut closed = false;
+        // When the module itself exited: from then on only the pipe's remainder is awaited.
+        let mut exited_at: Option<Instant> = None;
+        loop {
+            if exited_at.is_some() && (closed || complete_lines(&out) >= answer_lines) {
+                break;
             }
-        };
-        let stdout = match out {
-            Captured::Complete(bytes) => bytes,
-            Captured::TooLarge => {
-                stop(&mut child);
-                return Err(CallError::Failed(format!(
-                    "its output exceeded the limit of {} MiB and it was stopped",
-                    MAX_OUTPUT_BYTES / (1024 * 1024)
-                )));
+            let now = Instant::now();
+            let until = match exited_at {
+                // The module exited in time; the remainder of the pipe gets a short grace even
+                // when that ends past the deadline.
+                Some(t) => t + READER_GRACE,
+                None => deadline,
+            };
+            #[cfg(not(unix))]
+            let until = until.min(now + EXIT_POLL);
+            let event = rx.recv_timeout(until.saturating_duration_since(now));
+            match event {
+                Ok(Event::Chunk(bytes)) => {
+                    out.extend_from_slice(&bytes);
+                    if out.len() > MAX_OUTPUT_BYTES {
+                        let _ = running.finish();
+                        return Err(CallError::Failed(format!(
+                            "its output exceeded the limit of {} MiB and it was stopped",
+                            MAX_OUTPUT_BYTES / (1024 * 1024)
+                        )));
+                    }
+                }
+                Ok(Event::Closed) => closed = true,
+                Ok(Event::ReadFailed(e)) => {
+                    let _ = running.finish();
+                    return Err(CallError::Failed(format!("reading its output failed: {e}")));
+                }
+                Ok(Event::Exited) => {
+                    // Whatever it started goes with it; its answer is already in the pipe.
+                    running.kill_group();
+                    exited_at = Some(Instant::now());
+                }
+                Err(mpsc::RecvTimeoutError::Timeout) => {
+                    if exited_at.is_some() {
+                        // The pipe is held open by a process that left the module's group; the
+                        // module is gone and what it wrote has been read.
+                        break;
+                    }
+                    #[cfg(not(unix))]
+                    if running.has_exited() {
+                        running.kill_group();
+                        exited_at = Some(Instant::now());
+                        continue;
+                    }
+                    if Instant::now() < deadline {
+                        continue;
+                    }
+                    let _ = running.finish();
+                    return Err(self.timed_out(complete_lines(&out) >= answer_lines));
+                }
+                // Every sender is gone: the output is closed and the exit was seen.
+                Err(mpsc::RecvTimeoutError::Disconnected) => break,
             }
-            Captured::Io(e) => {
-                stop(&mut child);
-                return Err(CallError::Failed(format!("reading its output failed: {e}")));
-            }
-        };
-        let status = match wait_until(&mut child, deadline) {
-            Ok(Some(s)) => s,
-            Ok(None) => {
-                stop(&mut child);
-                return Err(self.timed_out());
-            }
-            Err(e) => {
-                stop(&mut child);
-                return Err(CallError::Failed(format!("waiting for it failed: {e}")));
-            }
+        }
+        let status = match running.finish() {
+            Ok(s) => s,
+            Err(e) => return Err(CallError::Failed(format!("waiting for it failed: {e}"))),
         };
         let last_stderr = err_rx.recv_timeout(READER_GRACE).ok().flatten();
+        drop(workdir);
         if !status.success() {
             let mut msg = describe_status(status);
             if let Some(line) = last_stderr {
@@ -222,12 +314,17 @@ impl Launch {
             }
             return Err(CallError::Failed(msg));
         }
-        Ok(stdout)
+        Ok(out)
     }
 
-    fn timed_out(&self) -> CallError {
+    fn timed_out(&self, had_answered: bool) -> CallError {
+        let what = if had_answered {
+            "answered but did not exit"
+        } else {
+            "did not finish"
+        };
         CallError::Failed(format!(
-            "did not finish within {} s and was stopped; if it needs longer, raise \
+            "{what} within {} s and was stopped; if it needs longer, raise \
              `timeout_seconds` for module `{}` in program.yaml",
             self.timeout.as_secs_f64(),
             self.id
@@ -235,27 +332,192 @@ impl Launch {
     }
 }
 
-/// Kills a child that overran or misbehaved, and reaps it.
-fn stop(child: &mut Child) {
-    let _ = child.kill();
-    let _ = child.wait();
+/// What the threads around a running module report.
+enum Event {
+    /// Bytes from standard output.
+    Chunk(Vec<u8>),
+    /// Standard output was closed by every process holding it.
+    Closed,
+    /// Reading standard output failed.
+    ReadFailed(String),
+    /// The module itself exited (it is not yet reaped, so its process group id stays its own).
+    Exited,
 }
 
-/// Waits for the child to exit until `deadline`; `None` when it is still running then.
-fn wait_until(child: &mut Child, deadline: Instant) -> std::io::Result<Option<ExitStatus>> {
-    // Standard output is already closed here, so the exit is normally a moment away; back off
-    // from 1 ms so that case is cheap and a module that lingers costs little CPU.
-    let mut pause = Duration::from_millis(1);
+/// Forwards standard output in chunks until it closes.
+fn read_chunks(mut r: impl Read, tx: &mpsc::Sender<Event>) {
+    let mut buf = vec![0u8; 64 * 1024];
     loop {
-        if let Some(s) = child.try_wait()? {
-            return Ok(Some(s));
+        match r.read(&mut buf) {
+            Ok(0) => {
+                let _ = tx.send(Event::Closed);
+                return;
+            }
+            Ok(n) => {
+                if tx.send(Event::Chunk(buf[..n].to_vec())).is_err() {
+                    return;
+                }
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => {
+                let _ = tx.send(Event::ReadFailed(e.to_string()));
+                return;
+            }
         }
-        let now = Instant::now();
-        if now >= deadline {
-            return Ok(None);
+    }
+}
+
+/// Non-blank lines that are complete (end with a newline) in `out`.
+fn complete_lines(out: &[u8]) -> usize {
+    let end = out.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1);
+    out[..end]
+        .split(|&b| b == b'\n')
+        .filter(|l| !l.iter().all(u8::is_ascii_whitespace))
+        .count()
+}
+
+/// A started module and its process group. The module leads the group (pgid = its pid); it is
+/// reaped only after the group was killed, so the group id cannot have been reused by then.
+/// Dropping it kills the group and reaps the module, so no way out of [`Launch::exchange`] can
+/// leave a process of the module behind.
+struct Running {
+    child: Child,
+    status: Option<ExitStatus>,
+}
+
+/// Process groups of the modules running right now, with their working folders, so that an
+/// interrupted run can stop them and clean up. A group leaves the map before its leader is
+/// reaped, so an id in it is never a reused one.
+#[cfg(unix)]
+static LIVE_GROUPS: std::sync::Mutex<std::collections::BTreeMap<u32, PathBuf>> =
+    std::sync::Mutex::new(std::collections::BTreeMap::new());
+
+#[cfg(unix)]
+fn live_groups() -> std::sync::MutexGuard<'static, std::collections::BTreeMap<u32, PathBuf>> {
+    // A panic while holding the lock leaves the set itself consistent.
+    LIVE_GROUPS.lock().unwrap_or_else(|e| e.into_inner())
+}
+
+/// On the first call, starts a thread that waits for SIGINT or SIGTERM; when one arrives it kills
+/// the process groups of the modules running then, removes their working folders, and ends the
+/// process as the signal would have.
+/// Modules lead groups of their own, so a Ctrl-C at the terminal or a scheduler stopping the job
+/// reaches only cohortpress; without this their processes would outlive the run.
+#[cfg(unix)]
+fn stop_modules_on_interrupt() {
+    static INSTALL: std::sync::Once = std::sync::Once::new();
+    INSTALL.call_once(|| {
+        use signal_hook::consts::{SIGINT, SIGTERM};
+        let mut signals = match signal_hook::iterator::Signals::new([SIGINT, SIGTERM]) {
+            Ok(s) => s,
+            Err(e) => {
+                tracing::warn!(
+                    "cannot watch for interrupts ({e}); an interrupted run may leave external \
+                     modules running"
+                );
+                return;
+            }
+        };
+        std::thread::spawn(move || {
+            if let Some(signal) = signals.forever().next() {
+                let groups = live_groups();
+                for (&pgid, dir) in groups.iter() {
+                    if let Some(pid) = rustix::process::Pid::from_raw(pgid as i32) {
+                        let _ =
+                            rustix::process::kill_process_group(pid, rustix::process::Signal::KILL);
+                    }
+                    let _ = std::fs::remove_dir_all(dir);
+                }
+                // Keep the lock: no new group is registered while the process ends.
+                let _ = signal_hook::low_level::emulate_default_handler(signal);
+                std::process::exit(128 + signal);
+            }
+        });
+    });
+}
+
+impl Running {
+    fn new(child: Child, workdir: &Path) -> Self {
+        #[cfg(unix)]
+        {
+            stop_modules_on_interrupt();
+            live_groups().insert(child.id(), workdir.to_path_buf());
         }
-        std::thread::sleep(pause.min(deadline - now));
-        pause = (pause * 2).min(Duration::from_millis(50));
+        #[cfg(not(unix))]
+        let _ = workdir;
+        Running {
+            child,
+            status: None,
+        }
+    }
+
+    /// Reports [`Event::Exited`] on `tx` when the module exits, without reaping it.
+    #[cfg(unix)]
+    fn watch_exit(&self, tx: mpsc::Sender<Event>) {
+        use rustix::process::{Pid, WaitId, WaitIdOptions, waitid};
+        let pid = Pid::from_child(&self.child);
+        std::thread::spawn(move || {
+            loop {
+                match waitid(
+                    WaitId::Pid(pid),
+                    WaitIdOptions::EXITED | WaitIdOptions::NOWAIT,
+                ) {
+                    Err(rustix::io::Errno::INTR) => continue,
+                    // Exited, or already reaped because the call ended another way.
+                    _ => break,
+                }
+            }
+            let _ = tx.send(Event::Exited);
+        });
+    }
+
+    #[cfg(not(unix))]
+    fn watch_exit(&self, tx: mpsc::Sender<Event>) {
+        // Exits are polled (see `EXIT_POLL`); the sender is dropped so a closed pipe can end
+        // the wait.
+        drop(tx);
+    }
+
+    #[cfg(not(unix))]
+    fn has_exited(&mut self) -> bool {
+        matches!(self.child.try_wait(), Ok(Some(_)))
+    }
+
+    /// Kills every process in the module's group (the module too, if it is still running).
+    fn kill_group(&mut self) {
+        if self.status.is_some() {
+            return;
+        }
+        #[cfg(unix)]
+        {
+            use rustix::process::{Pid, Signal, kill_process_group};
+            // The module is not reaped yet, so its pid still names its group. ESRCH (the group
+            // is already empty) is fine.
+            let _ = kill_process_group(Pid::from_child(&self.child), Signal::KILL);
+        }
+        #[cfg(not(unix))]
+        {
+            let _ = self.child.kill();
+        }
+    }
+
+    /// Kills the group and reaps the module; its exit status.
+    fn finish(&mut self) -> std::io::Result<ExitStatus> {
+        if let Some(s) = self.status {
+            return Ok(s);
+        }
+        self.kill_group();
+        #[cfg(unix)]
+        live_groups().remove(&self.child.id());
+        let s = self.child.wait()?;
+        self.status = Some(s);
+        Ok(s)
+    }
+}
+
+impl Drop for Running {
+    fn drop(&mut self) {
+        let _ = self.finish();
     }
 }
 
@@ -271,21 +533,6 @@ fn describe_status(status: ExitStatus) -> String {
         }
     }
     "ended abnormally".into()
-}
-
-enum Captured {
-    Complete(Vec<u8>),
-    TooLarge,
-    Io(String),
-}
-
-fn read_capped(r: impl Read, cap: usize) -> Captured {
-    let mut buf = Vec::new();
-    match r.take(cap as u64 + 1).read_to_end(&mut buf) {
-        Ok(n) if n > cap => Captured::TooLarge,
-        Ok(_) => Captured::Complete(buf),
-        Err(e) => Captured::Io(e.to_string()),
-    }
 }
 
 /// Logs each stderr line as a warning prefixed by the module id; returns the last non-empty line
@@ -431,6 +678,78 @@ fn hello_message() -> HostMessage {
     }
 }
 
+/// Whether `name` can name an output: ASCII letters, digits and `_`, starting with a letter (the
+/// protocol asks for snake_case). Output names become column names in the tidy CSVs, so nothing
+/// else gets through.
+fn is_output_name(name: &str) -> bool {
+    let mut chars = name.chars();
+    chars.next().is_some_and(|c| c.is_ascii_alphabetic())
+        && chars.all(|c| c.is_ascii_alphanumeric() || c == '_')
+        && name.len() <= 100
+}
+
+/// Checks what the protocol promises about a `result` beyond its JSON shape: names are
+/// snake_case and unique within their kind, a series' `step` is known and its points are sorted
+/// by date, every table row has one cell per column, and flag codes are not empty.
+pub fn validate_output(out: &ModuleOutput) -> Result<(), String> {
+    fn names<'a>(kind: &str, names: impl Iterator<Item = &'a str>) -> Result<(), String> {
+        let mut seen = std::collections::BTreeSet::new();
+        for name in names {
+            if !is_output_name(name) {
+                return Err(format!(
+                    "{kind} name `{}` is not snake_case (expected letters, digits and `_`, \
+                     starting with a letter, at most 100 characters)",
+                    snippet(name)
+                ));
+            }
+            if !seen.insert(name) {
+                return Err(format!("{kind} `{name}` appears twice"));
+            }
+        }
+        Ok(())
+    }
+    names("scalar", out.scalars.iter().map(|s| s.name.as_str()))?;
+    names("text", out.texts.iter().map(|t| t.name.as_str()))?;
+    names("series", out.series.iter().map(|s| s.name.as_str()))?;
+    names("table", out.tables.iter().map(|t| t.name.as_str()))?;
+    for s in &out.series {
+        if !["daily", "weekly", "irregular"].contains(&s.step.as_str()) {
+            return Err(format!(
+                "series `{}` has step `{}`; expected `daily`, `weekly` or `irregular`",
+                s.name,
+                snippet(&s.step)
+            ));
+        }
+        if let Some(w) = s.points.windows(2).find(|w| w[1].date < w[0].date) {
+            return Err(format!(
+                "series `{}` is not sorted by date: {} comes after {}",
+                s.name, w[1].date, w[0].date
+            ));
+        }
+    }
+    for t in &out.tables {
+        names(
+            &format!("table `{}`: column", t.name),
+            t.columns.iter().map(|c| c.name.as_str()),
+        )?;
+        for (i, row) in t.rows.iter().enumerate() {
+            if row.len() != t.columns.len() {
+                return Err(format!(
+                    "table `{}` row {} has {} cells for {} columns",
+                    t.name,
+                    i + 1,
+                    row.len(),
+                    t.columns.len()
+                ));
+            }
+        }
+    }
+    if let Some(i) = out.flags.iter().position(|f| f.code.trim().is_empty()) {
+        return Err(format!("flag {} has an empty `code`", i + 1));
+    }
+    Ok(())
+}
+
 /// An external module whose handshake succeeded: how to start it and the spec it announced.
 #[derive(Debug, Clone)]
 pub struct ExternalModule {
@@ -442,7 +761,7 @@ impl ExternalModule {
     /// Runs the handshake (`hello` only) and returns the module with the spec it announced, and
     /// the protocol check (a minor-version difference is a warning for the caller to report).
     pub fn describe(launch: Launch) -> Result<(ExternalModule, VersionCheck), CallError> {
-        let stdout = launch.exchange(line_of(&hello_message())?)?;
+        let stdout = launch.exchange(line_of(&hello_message())?, 1)?;
         let mut msgs = parse_messages(&stdout)
             .map_err(CallError::Failed)?
             .into_iter();
@@ -490,7 +809,7 @@ impl ExternalModule {
         ctx: &ModuleContext,
         data: &ParticipantData,
     ) -> Result<ModuleOutput, CallError> {
-        let stdout = self.launch.exchange(self.request(ctx, data)?)?;
+        let stdout = self.launch.exchange(self.request(ctx, data)?, 2)?;
         let mut msgs = parse_messages(&stdout)
             .map_err(CallError::Failed)?
             .into_iter();
@@ -502,7 +821,12 @@ impl ExternalModule {
                     "answered `hello` but sent no `result` or `error`".into(),
                 ));
             }
-            Some(ModuleMessage::Result { output }) => Ok(output),
+            Some(ModuleMessage::Result { output }) => match validate_output(&output) {
+                Ok(()) => Ok(output),
+                Err(why) => Err(CallError::Failed(format!(
+                    "it answered, but its `result` failed validation: {why}"
+                ))),
+            },
             Some(ModuleMessage::Error { message }) => {
                 Err(CallError::Failed(format!("reported an error: {message}")))
             }
@@ -584,8 +908,10 @@ mod tests {
     }
 
     #[test]
-    fn output_is_capped() {
-        assert!(matches!(read_capped(&b"abcd"[..], 4), Captured::Complete(v) if v == b"abcd"));
-        assert!(matches!(read_capped(&b"abcde"[..], 4), Captured::TooLarge));
+    fn complete_lines_count_only_finished_non_blank_lines() {
+        assert_eq!(complete_lines(b""), 0);
+        assert_eq!(complete_lines(b"{\"type\":\"hello\"}"), 0);
+        assert_eq!(complete_lines(b"{\"type\":\"hello\"}\n"), 1);
+        assert_eq!(complete_lines(b"a\n\n  \nb\nc"), 2);
     }
 }

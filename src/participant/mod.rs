@@ -105,10 +105,19 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         let rel = format!("{PARTICIPANTS_DIR}/{}", printable(&name));
         let ft = entry.file_type();
         if ft.is_symlink() {
-            diags.push(
-                Diagnostic::warning(rel, "a link in the participants folder is skipped")
-                    .hint("put the participant's folder itself here, not a link to it"),
-            );
+            // Never followed: a link could lead into another participant's folder (whose data
+            // would then appear in this person's report) or anywhere else on the system.
+            let mut d = Diagnostic::error(
+                rel,
+                "the participant folder is a symbolic link; links are not followed, so this participant is not reported",
+            )
+            .expected("a real folder holding the participant's files")
+            .found("a symbolic link")
+            .hint("move or copy the participant's folder itself into participants/");
+            if let Some(id) = raw_name.to_str().filter(|n| is_plain_id(n)) {
+                d = d.participant(id);
+            }
+            diags.push(d);
             continue;
         }
         if !ft.is_dir() {
@@ -132,7 +141,27 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         }
     }
     dirs.sort();
+    if dirs.is_empty() && diags.is_empty() {
+        // An empty folder is what an unmounted network share looks like: reporting on nobody
+        // would replace last month's reports with empty ones.
+        diags.push(
+            Diagnostic::error(
+                PARTICIPANTS_DIR,
+                "the participants folder holds no participant folders",
+            )
+            .expected("one folder per participant, each with its profile.yaml")
+            .hint("if the folder lives on a network share, check that the share is mounted"),
+        );
+    }
     (dirs, diags)
+}
+
+/// Whether a discovery diagnostic concerns the participants folder as a whole (missing,
+/// unreadable or empty): then nothing can be reported, and `check` and `run` both exit 3.
+pub fn is_folder_error(d: &Diagnostic) -> bool {
+    d.severity == crate::diag::Severity::Error
+        && d.participant.is_none()
+        && d.file == PARTICIPANTS_DIR
 }
 
 /// Shows control characters in a name as escapes so a message cannot be garbled by them.
@@ -161,8 +190,8 @@ pub fn csv_options(program: &Program) -> CsvOptions {
 /// give an error diagnostic.
 ///
 /// `listing` is the folder's entries with their types, when the folder could be listed: it
-/// answers "is there such a file" without two `stat` calls per file (a noticeable part of
-/// loading). Links and unusual entries are still examined through the path.
+/// answers "is there such a file" without a `stat` call per missing file. Whatever is there is
+/// opened without following links and refused unless it is a regular file.
 fn read_input(
     dir: &ParticipantDir,
     name: &str,
@@ -172,26 +201,21 @@ fn read_input(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Result<String, ()>> {
     let path = dir.path.join(name);
-    let listed = listing.map(|l| l.iter().find(|(n, _)| n == name).map(|(_, t)| *t));
-    let (exists, is_file) = match listed {
-        Some(None) => (false, false),
-        Some(Some(t)) if t.is_file() => (true, true),
-        Some(Some(t)) if t.is_dir() => (true, false),
-        // Not listed, a link or something else: ask the file system (following links).
-        _ => (path.exists(), path.is_file()),
-    };
-    if !exists {
+    if let Some(l) = listing
+        && !l.iter().any(|(n, _)| n == name)
+    {
         return None;
     }
-    if !is_file {
-        diags.push(ctx.error(format!("`{name}` is not a file; it cannot be read")));
-        return Some(Err(()));
-    }
-    // Size-limited read (crate::limits): an oversized file is refused before it is read.
+    // Opened without following links, regular files only (crate::limits::open_input), and
+    // refused before reading when over the size limit.
     let bytes = match crate::limits::read_input(&path) {
         Ok(b) => b,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => return None,
         Err(e) => {
-            diags.push(ctx.error(format!("cannot read the file ({e})")));
+            diags.push(
+                ctx.error(format!("cannot read the file ({e})"))
+                    .hint("the participant is left out until the file can be read; other participants are not affected"),
+            );
             return Some(Err(()));
         }
     };
@@ -255,10 +279,15 @@ pub fn load_participant(
             listing = Some(typed);
         }
         names.sort();
+        let mut stray = 0usize;
         for n in names {
             let lower = n.to_lowercase();
             let input_like = [".csv", ".yaml", ".yml"].iter().any(|x| lower.ends_with(x));
             if input_like && !n.starts_with('.') && !KNOWN_FILES.contains(&n.as_str()) {
+                stray += 1;
+                if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
+                    continue;
+                }
                 let hint = if lower == "profile.yml" || lower == "profile.yaml" {
                     "rename it to `profile.yaml` (lowercase, .yaml)".to_string()
                 } else {
@@ -275,6 +304,16 @@ pub fn load_participant(
                         .hint(hint),
                 );
             }
+        }
+        if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
+            diags.push(
+                FileCtx::new(id, format!("{PARTICIPANTS_DIR}/{id}"))
+                    .warning(format!(
+                        "… and {} more files that are not input files the tool reads; they are ignored",
+                        crate::diag::thousands(stray - crate::limits::MAX_DIAGNOSTICS_PER_KIND)
+                    ))
+                    .hint(format!("the files read are {}", KNOWN_FILES.join(", "))),
+            );
         }
     }
 
@@ -312,7 +351,8 @@ pub fn load_participant(
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
             let ctx = FileCtx::new(id, rel($spec.name));
-            match read_input(
+            let first_diag = diags.len();
+            let rows = match read_input(
                 dir,
                 $spec.name,
                 listing.as_deref(),
@@ -325,7 +365,9 @@ pub fn load_participant(
                 Some(Ok(text)) => {
                     $parse(&text, &opts, &ctx, &window, &mut diags).unwrap_or_default()
                 }
-            }
+            };
+            crate::diag::cap_per_kind(&mut diags, first_diag);
+            rows
         }};
     }
     let weights = csv_file!(records::WEIGHTS, records::parse_weights);

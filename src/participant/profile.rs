@@ -234,6 +234,22 @@ pub fn parse_profile(
         }
         b => b,
     };
+    // Target overrides: the same ranges as program.yaml's targets.
+    if let Some(t) = &def.targets {
+        for (key, v, lo, hi) in crate::program::load::target_problems(t) {
+            let path = format!("targets.{key}");
+            let mut d = ctx
+                .error(format!("target out of range: {v}"))
+                .field(path.as_str())
+                .expected(format!("a number from {lo} to {hi}"))
+                .found(v.to_string())
+                .hint("the override replaces the program's target for this participant; check the value or remove it");
+            if let Some((l, c)) = crate::program::load::key_position(text, &path) {
+                d = d.at(l, c);
+            }
+            diags.push(d);
+        }
+    }
     let has_error = diags[before..]
         .iter()
         .any(|d| d.severity == crate::diag::Severity::Error);
@@ -282,6 +298,26 @@ flags: [glucose-lowering-medication]
         let mut d = Vec::new();
         let p = parse_profile(text, "LW-0147", &Targets::default(), &ctx, &mut d);
         (p, d)
+    }
+
+    #[test]
+    fn target_overrides_are_checked_like_the_program_targets() {
+        let text = GOOD.replace(
+            "targets: { weight_change_percent: -7 }",
+            "targets:\n  weight_change_percent: -846.9\n  activity_minutes_per_week: .nan\n  weigh_ins_per_week: 4",
+        );
+        let (p, d) = parse(&text);
+        assert!(p.is_none());
+        assert_eq!(d.len(), 2, "{d:?}");
+        assert_eq!(d[0].field.as_deref(), Some("targets.weight_change_percent"));
+        assert_eq!((d[0].line, d[0].column), (Some(11), Some(26)), "{}", d[0]);
+        assert_eq!(d[0].found.as_deref(), Some("-846.9"));
+        assert_eq!(d[0].expected.as_deref(), Some("a number from -50 to 50"));
+        assert_eq!((d[1].line, d[1].column), (Some(12), Some(30)), "{}", d[1]);
+        assert_eq!(d[1].found.as_deref(), Some("NaN"));
+        // In a flow mapping the column points at the value too.
+        let (_, d) = parse(&GOOD.replace("-7 }", "70 }"));
+        assert_eq!((d[0].line, d[0].column), (Some(10), Some(35)), "{}", d[0]);
     }
 
     #[test]

@@ -4,6 +4,7 @@
 
 use super::quantity::{NumberError, parse_decimal};
 use crate::diag::Diagnostic;
+use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_ROWS};
 use chrono::NaiveDate;
 use std::collections::BTreeMap;
 
@@ -218,6 +219,19 @@ fn read_records(
         })
     };
     let header_line = line_of(header.position());
+    // Budgets (crate::limits): checked before anything is built from the header or the rows.
+    if header.len() > MAX_CSV_COLUMNS {
+        diags.push(
+            ctx.error(format!(
+                "the header has {} columns, more than the limit of {MAX_CSV_COLUMNS}; the file cannot be used",
+                header.len()
+            ))
+            .at(header_line, None)
+            .expected(format!("columns {}", column_list(spec)))
+            .hint("check it is the right file and that its first row names the columns"),
+        );
+        return None;
+    }
     let names: Vec<String> = header.iter().map(|h| h.trim().to_lowercase()).collect();
     let mut columns = BTreeMap::new();
     let mut usable = true;
@@ -301,9 +315,23 @@ fn read_records(
         text: String::with_capacity(text.len()),
         bounds: Vec::new(),
     };
+    let mut records = 0usize;
     loop {
         match reader.read_record(&mut rec) {
-            Ok(true) => {}
+            Ok(true) => {
+                records += 1;
+                if records > MAX_CSV_ROWS {
+                    diags.push(
+                        ctx.error(format!(
+                            "the file has more than {MAX_CSV_ROWS} rows, the limit for one file; it was not read further and cannot be used"
+                        ))
+                        .at(line_of(rec.position()), None)
+                        .expected(format!("at most {MAX_CSV_ROWS} rows"))
+                        .hint("check it is the right file; split a very long history into the reporting years"),
+                    );
+                    return None;
+                }
+            }
             Ok(false) => break,
             Err(e) => {
                 let line = e.position().map(|p| line_of(Some(p)));
@@ -319,6 +347,19 @@ fn read_records(
         if rec.iter().all(|f| f.trim().is_empty()) {
             continue;
         }
+        if let Some(i) = rec.iter().position(|f| f.len() > MAX_CSV_FIELD_BYTES) {
+            diags.push(
+                ctx.warning(format!(
+                    "a field of {} bytes is longer than the limit of {MAX_CSV_FIELD_BYTES}; the row is dropped",
+                    rec[i].len()
+                ))
+                .at(line, Some(i as u64 + 1))
+                .expected(format!("fields of at most {MAX_CSV_FIELD_BYTES} bytes"))
+                .found(format!("`{}`", shorten(&rec[i], 40)))
+                .hint("check for a quote (`\"`) that is never closed"),
+            );
+            continue;
+        }
         if rec.len() != names.len() {
             let mut d = ctx
                 .warning(format!(
@@ -331,10 +372,14 @@ fn read_records(
                 .found(format!(
                     "{} fields: `{}`",
                     rec.len(),
-                    rec.iter()
-                        .map(str::trim)
-                        .collect::<Vec<_>>()
-                        .join(&(opts.delimiter as char).to_string())
+                    shorten(
+                        &rec.iter()
+                            .take(MAX_CSV_COLUMNS + 1)
+                            .map(str::trim)
+                            .collect::<Vec<_>>()
+                            .join(&(opts.delimiter as char).to_string()),
+                        200
+                    )
                 ));
             let split_decimal = rec.len() == names.len() + 1
                 && opts.delimiter == b','
@@ -365,6 +410,14 @@ fn read_records(
         table.rows.push(Row { line, first });
     }
     Some(table)
+}
+
+/// The first `max` characters of `s`, with `…` when cut.
+fn shorten(s: &str, max: usize) -> String {
+    match s.char_indices().nth(max) {
+        Some((i, _)) => format!("{}…", &s[..i]),
+        None => s.to_string(),
+    }
 }
 
 fn column_list(spec: &FileSpec) -> String {
@@ -744,6 +797,45 @@ mod tests {
             parse_date("01/04/2026", "%d/%m/%Y").unwrap(),
             NaiveDate::from_ymd_opt(2026, 4, 1).unwrap()
         );
+    }
+
+    #[test]
+    fn budgets_refuse_wide_headers_and_long_files_and_drop_huge_fields() {
+        let opts = CsvOptions::default();
+        let wide = format!("date,weight,unit{}\n", ",x".repeat(MAX_CSV_COLUMNS));
+        let (t, d) = read(&wide, &opts);
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert!(
+            d[0].message.contains("more than the limit of 256"),
+            "{}",
+            d[0]
+        );
+
+        let mut long = String::from("date,weight,unit\n");
+        for _ in 0..=MAX_CSV_ROWS {
+            long.push_str("2026-04-01,72,kg\n");
+        }
+        let (t, d) = read(&long, &opts);
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].line, Some(MAX_CSV_ROWS as u64 + 2));
+        assert!(d[0].message.contains("more than 50000 rows"), "{}", d[0]);
+        // At the limit the file is read.
+        let at_limit = &long[..long.len() - "2026-04-01,72,kg\n".len()];
+        let (t, d) = read(at_limit, &opts);
+        assert!(d.is_empty());
+        assert_eq!(t.unwrap().rows.len(), MAX_CSV_ROWS);
+
+        let huge = format!(
+            "date,weight,unit,source\n2026-04-01,72,kg,{}\n2026-04-02,71,kg,scale\n",
+            "n".repeat(MAX_CSV_FIELD_BYTES + 1)
+        );
+        let (t, d) = read(&huge, &opts);
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert_eq!(d.len(), 1);
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(4)));
+        assert!(d[0].found.as_ref().unwrap().len() < 60, "{}", d[0]);
     }
 
     #[test]

@@ -69,11 +69,13 @@ fn discovery_is_sorted_and_refuses_bad_names() {
         .filter(|d| d.severity == Severity::Error)
         .map(|d| d.file.as_str())
         .collect();
+    #[cfg(unix)]
     assert_eq!(
         errors,
         vec![
             "participants/a..b",
             "participants/bad id",
+            "participants/link",
             "participants/tab\\tname",
             "participants/ünï"
         ]
@@ -84,10 +86,7 @@ fn discovery_is_sorted_and_refuses_bad_names() {
         .map(|d| d.file.as_str())
         .collect();
     #[cfg(unix)]
-    assert_eq!(
-        warnings,
-        vec!["participants/link", "participants/notes.txt"]
-    );
+    assert_eq!(warnings, vec!["participants/notes.txt"]);
 }
 
 #[test]
@@ -216,9 +215,9 @@ fn profile_errors_and_withdrawal_window() {
 }
 
 #[test]
-fn inputs_found_through_the_folder_listing_links_and_directories() {
-    // The folder listing decides which inputs exist; a link is followed as before, and a
-    // directory with an input's name is an error naming it.
+fn links_fifos_and_directories_are_refused_naming_the_file() {
+    // The folder listing decides which inputs exist; a link, a folder or a FIFO with an input's
+    // name is an error naming it, and nothing is read through it.
     let tmp = tempfile::tempdir().unwrap();
     let p = program(tmp.path());
     let dir = participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
@@ -226,25 +225,46 @@ fn inputs_found_through_the_folder_listing_links_and_directories() {
     fs::write(&elsewhere, "date,weight,unit\n2026-04-02,80,kg\n").unwrap();
     std::os::unix::fs::symlink(&elsewhere, dir.path.join("weights.csv")).unwrap();
     fs::create_dir(dir.path.join("intake.csv")).unwrap();
+    let fifo = std::process::Command::new("mkfifo")
+        .arg(dir.path.join("activity.csv"))
+        .status()
+        .unwrap();
+    assert!(fifo.success());
     let loaded = load_participant(&p, &dir, as_of());
-    assert_eq!(loaded.diagnostics.len(), 1, "{:#?}", loaded.diagnostics);
-    let d = &loaded.diagnostics[0];
-    assert_eq!(d.severity, Severity::Error);
-    assert_eq!(d.file, "participants/P1/intake.csv");
-    assert!(d.message.contains("is not a file"), "{d}");
-    assert!(loaded.data.is_none());
-    // The linked weights file was read (and hashed); absent files were not listed as read.
-    let read: Vec<&str> = loaded.files.iter().map(|f| f.path.as_str()).collect();
-    assert_eq!(
-        read,
-        vec![
-            "participants/P1/profile.yaml",
-            "participants/P1/weights.csv"
-        ]
+    let errors: Vec<(&str, &str)> = loaded
+        .diagnostics
+        .iter()
+        .map(|d| {
+            assert_eq!(d.severity, Severity::Error, "{d}");
+            (d.file.as_str(), d.message.as_str())
+        })
+        .collect();
+    assert_eq!(errors.len(), 3, "{errors:#?}");
+    assert_eq!(errors[0].0, "participants/P1/activity.csv");
+    assert!(
+        errors[0]
+            .1
+            .contains("a FIFO (named pipe), not a regular file"),
+        "{errors:?}"
     );
+    assert_eq!(errors[1].0, "participants/P1/intake.csv");
+    assert!(
+        errors[1].1.contains("a folder, not a regular file"),
+        "{errors:?}"
+    );
+    assert_eq!(errors[2].0, "participants/P1/weights.csv");
+    assert!(errors[2].1.contains("symbolic link"), "{errors:?}");
+    assert!(loaded.data.is_none());
+    // Only the profile was read.
+    let read: Vec<&str> = loaded.files.iter().map(|f| f.path.as_str()).collect();
+    assert_eq!(read, vec!["participants/P1/profile.yaml"]);
 
-    // Without the directory the participant is usable and has the linked weigh-in.
+    // With real files in their place the participant is usable.
+    for f in ["weights.csv", "activity.csv"] {
+        fs::remove_file(dir.path.join(f)).unwrap();
+    }
     fs::remove_dir(dir.path.join("intake.csv")).unwrap();
+    fs::copy(&elsewhere, dir.path.join("weights.csv")).unwrap();
     let loaded = load_participant(&p, &dir, as_of());
     assert!(loaded.diagnostics.is_empty(), "{:#?}", loaded.diagnostics);
     let data = loaded.data.unwrap();

@@ -9,7 +9,6 @@ use crate::diag::Diagnostic;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{ProgramInfo, Targets};
 use std::collections::{BTreeMap, BTreeSet};
-use std::io::Read;
 use std::path::Path;
 
 /// The program file's name, relative to the program folder (as diagnostics show it).
@@ -100,43 +99,16 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 .found(def.program.end.to_string()),
         );
     }
-    let t = &def.targets;
-    for (key, v, lo, hi) in [
-        (
-            "targets.weight_change_percent",
-            t.weight_change_percent,
-            -50.0,
-            50.0,
-        ),
-        (
-            "targets.activity_minutes_per_week",
-            t.activity_minutes_per_week,
-            0.0,
-            3000.0,
-        ),
-        (
-            "targets.weigh_ins_per_week",
-            t.weigh_ins_per_week,
-            0.0,
-            21.0,
-        ),
-        (
-            "targets.food_log_days_per_week",
-            t.food_log_days_per_week,
-            0.0,
-            7.0,
-        ),
-    ] {
-        // Bounds are sanity limits (common practice), not clinical advice.
-        if let Some(v) = v
-            && (!v.is_finite() || v < lo || v > hi)
-        {
-            out.push(
-                err(key, format!("target out of range: {v}"))
-                    .expected(format!("a number from {lo} to {hi}"))
-                    .found(v.to_string()),
-            );
+    for (key, v, lo, hi) in target_problems(&def.targets) {
+        let key = format!("targets.{key}");
+        let mut d = Diagnostic::error(PROGRAM_FILE, format!("target out of range: {v}"))
+            .field(key.as_str())
+            .expected(format!("a number from {lo} to {hi}"))
+            .found(v.to_string());
+        if let Some((l, c)) = key_position(text, &key) {
+            d = d.at(l, c);
         }
+        out.push(d);
     }
     let mut seen = BTreeSet::new();
     let lines = module_lines(text, def.modules.len());
@@ -230,6 +202,56 @@ pub fn check_date_format(fmt: &str) -> Result<(), String> {
     }
 }
 
+/// Sanity ranges of the targets, used for `program.yaml` and for every profile's overrides
+/// alike: (key under `targets:`, lowest, highest). Bounds are sanity limits that catch typing
+/// errors (common practice), not clinical advice.
+pub const TARGET_RANGES: [(&str, f64, f64); 4] = [
+    ("weight_change_percent", -50.0, 50.0),
+    ("activity_minutes_per_week", 0.0, 3000.0),
+    ("weigh_ins_per_week", 0.0, 21.0),
+    ("food_log_days_per_week", 0.0, 7.0),
+];
+
+/// Every target given in `t` that is not a finite number within [`TARGET_RANGES`]:
+/// (key, value, lowest, highest).
+pub fn target_problems(t: &super::TargetsDef) -> Vec<(&'static str, f64, f64, f64)> {
+    let values = [
+        t.weight_change_percent,
+        t.activity_minutes_per_week,
+        t.weigh_ins_per_week,
+        t.food_log_days_per_week,
+    ];
+    TARGET_RANGES
+        .iter()
+        .zip(values)
+        .filter_map(|(&(key, lo, hi), v)| {
+            let v = v?;
+            (!v.is_finite() || v < lo || v > hi).then_some((key, v, lo, hi))
+        })
+        .collect()
+}
+
+/// Line and, when the key is found on it, the 1-based column of the value of the key at
+/// `path` (`targets.weight_change_percent`), for diagnostics.
+pub fn key_position(text: &str, path: &str) -> Option<(u64, Option<u64>)> {
+    let line = key_line(text, path)?;
+    let last = path.rsplit('.').next().unwrap_or(path);
+    let column = text.lines().nth(line as usize - 1).and_then(|l| {
+        let mut from = 0;
+        while let Some(i) = l[from..].find(last) {
+            let after = &l[from + i + last.len()..];
+            let rest = after.trim_start();
+            if let Some(value) = rest.strip_prefix(':') {
+                let at = l.len() - value.trim_start().len();
+                return Some(l[..at].chars().count() as u64 + 1);
+            }
+            from += i + last.len();
+        }
+        None
+    });
+    Some((line, column))
+}
+
 /// Letters, digits, `-` and `_`; not empty; at most 64 characters (it names files).
 pub fn is_plain_id(s: &str) -> bool {
     !s.is_empty()
@@ -238,12 +260,10 @@ pub fn is_plain_id(s: &str) -> bool {
             .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
 }
 
-/// Reads a whole file without ever opening it for writing.
+/// Reads a whole input file without ever opening it for writing, without following a link and
+/// only when it is a regular file within its size limit ([`crate::limits::read_input`]).
 pub fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
-    let mut f = std::fs::OpenOptions::new().read(true).open(path)?;
-    let mut buf = Vec::new();
-    f.read_to_end(&mut buf)?;
-    Ok(buf)
+    crate::limits::read_input(path)
 }
 
 /// Decodes UTF-8 (a leading byte-order mark is skipped); on failure the diagnostic names the

@@ -155,6 +155,12 @@ const LINE_COLOURS: [RGBColor; 6] = [
     OI_ORANGE,
     OI_SKY,
 ];
+/// Fills of the interval bands in the order they are given, so two bands never share a colour.
+const BAND_COLOURS: [(RGBColor, f64); 3] = [(OI_SKY, 0.25), (OI_ORANGE, 0.22), (OI_GREEN, 0.18)];
+/// Text drawn in the vermillion of a reference line: Okabe–Ito vermillion darkened to a
+/// contrast of 5.8:1 on white (the palette's own #D55E00 gives 3.9:1, below the 4.5:1 WCAG 2.1
+/// asks of text, success criterion 1.4.3).
+const VERMILLION_TEXT: RGBColor = RGBColor(0xA8, 0x4A, 0x00);
 const INK: RGBColor = RGBColor(0x22, 0x22, 0x22);
 const MUTED: RGBColor = RGBColor(0x5F, 0x5F, 0x5F);
 const GRID: RGBColor = RGBColor(0xE3, 0xE3, 0xE3);
@@ -520,7 +526,7 @@ fn draw_line_chart<DB: DrawingBackend>(
         }
     }
 
-    for b in &c.bands {
+    for (i, b) in c.bands.iter().enumerate() {
         let mut pts: Vec<(NaiveDate, f64, f64)> = b
             .points
             .iter()
@@ -536,7 +542,8 @@ fn draw_line_chart<DB: DrawingBackend>(
             .map(|p| (p.0, p.2.max(p.1)))
             .chain(pts.iter().rev().map(|p| (p.0, p.1.min(p.2))))
             .collect();
-        let fill = OI_SKY.mix(0.25);
+        let (colour, alpha) = BAND_COLOURS[i % BAND_COLOURS.len()];
+        let fill = colour.mix(alpha);
         let series = chart.draw_series(std::iter::once(Polygon::new(outline, fill.filled())))?;
         if !b.label.is_empty() {
             series
@@ -799,7 +806,8 @@ fn draw_bar_chart<DB: DrawingBackend>(
                 + Text::new(
                     format!("target {}", fmt_num(t, 1)),
                     (-4, -4),
-                    text(LABEL_SIZE - 1.0, OI_VERMILLION).pos(Pos::new(HPos::Right, VPos::Bottom)),
+                    text(LABEL_SIZE - 1.0, VERMILLION_TEXT)
+                        .pos(Pos::new(HPos::Right, VPos::Bottom)),
                 ),
         ))?;
     }
@@ -905,6 +913,79 @@ mod tests {
         ));
         assert!(svg.contains("Łucja Nguyễn-Øberg"));
         assert!(svg.contains("goal 85 kg"));
+    }
+
+    /// WCAG 2.1 relative luminance of an sRGB colour (W3C, WCAG 2.1, definition of relative
+    /// luminance).
+    fn luminance(hex: &str) -> f64 {
+        let c = |i: usize| {
+            let v = u8::from_str_radix(&hex[i..i + 2], 16).unwrap() as f64 / 255.0;
+            if v <= 0.04045 {
+                v / 12.92
+            } else {
+                ((v + 0.055) / 1.055).powf(2.4)
+            }
+        };
+        0.2126 * c(0) + 0.7152 * c(2) + 0.0722 * c(4)
+    }
+
+    #[test]
+    fn every_chart_text_has_at_least_4_5_to_1_contrast_on_white() {
+        let bars = Chart::Bars(BarChart {
+            title: "Minutes per week".into(),
+            y_label: "min".into(),
+            bars: vec![
+                Bar {
+                    label: "A".into(),
+                    value: 120.0,
+                    suppressed: false,
+                },
+                Bar {
+                    label: "B".into(),
+                    value: 0.0,
+                    suppressed: true,
+                },
+            ],
+            target: Some(150.0),
+            alt_text: String::new(),
+        });
+        let mut seen = 0;
+        for svg in [to_svg(&sample_line(), 720, 340), to_svg(&bars, 600, 300)] {
+            for tag in svg.split("<text").skip(1) {
+                let open = &tag[..tag.find('>').unwrap()];
+                let fill = open
+                    .split("fill=\"#")
+                    .nth(1)
+                    .map(|r| &r[..6])
+                    .unwrap_or_else(|| panic!("text without a fill colour: {open}"));
+                // WCAG 2.1 contrast ratio against white (success criterion 1.4.3: 4.5:1).
+                let ratio = 1.05 / (luminance(fill) + 0.05);
+                assert!(ratio >= 4.5, "#{fill} gives {ratio:.2}:1 in {open}");
+                seen += 1;
+            }
+        }
+        assert!(seen > 20, "only {seen} text elements checked");
+    }
+
+    #[test]
+    fn two_bands_never_share_a_colour() {
+        let Chart::Line(mut c) = sample_line() else {
+            unreachable!()
+        };
+        let mut second = c.bands[0].clone();
+        second.label = "forecast range".into();
+        for p in &mut second.points {
+            p.1 -= 2.0;
+            p.2 -= 2.0;
+        }
+        c.bands.push(second);
+        let svg = to_svg(&Chart::Line(c), 720, 340);
+        let fills: std::collections::BTreeSet<&str> = svg
+            .split("<polygon")
+            .skip(1)
+            .filter_map(|p| p.split("fill=\"").nth(1).map(|r| &r[..7]))
+            .collect();
+        assert!(fills.len() >= 2, "{fills:?}");
     }
 
     #[test]

@@ -9,6 +9,7 @@ pub mod chart;
 mod font;
 pub mod pdf;
 mod plotters_pdf;
+mod tagged;
 
 pub use chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,

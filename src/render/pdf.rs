@@ -25,6 +25,7 @@ use printpdf::{
 use super::chart::Chart;
 use super::font::{self, Face};
 use super::plotters_pdf;
+use super::tagged::{self, Tags};
 
 /// A report document, independent of the page.
 #[derive(Debug, Clone, PartialEq)]
@@ -281,6 +282,8 @@ struct Layout {
     pages: Vec<Vec<Op>>,
     /// Top of the free space on the current page.
     y: f32,
+    /// The logical structure drawn so far (tagged PDF).
+    tags: Tags,
 }
 
 impl Layout {
@@ -288,6 +291,7 @@ impl Layout {
         Layout {
             pages: vec![Vec::with_capacity(512)],
             y: CONTENT_TOP,
+            tags: Tags::default(),
         }
     }
 
@@ -301,7 +305,25 @@ impl Layout {
 
     fn new_page(&mut self) {
         self.pages.push(Vec::with_capacity(512));
+        self.tags.new_page();
         self.y = CONTENT_TOP;
+    }
+
+    /// One line of real content: text in a marked-content sequence of the current structure
+    /// element.
+    fn text(&mut self, face: Face, size: f32, colour: Color, x: f32, baseline: f32, s: &str) {
+        let page = self.pages.last_mut().expect("layout always has a page");
+        self.tags.begin_content(page);
+        push_text(page, face, size, colour, x, baseline, s);
+        Tags::end_content(page);
+    }
+
+    /// Decoration (rules, fills): drawn as an artifact, outside the structure.
+    fn decoration(&mut self, draw: impl FnOnce(&mut Vec<Op>)) {
+        let page = self.ops();
+        tagged::begin_artifact(page);
+        draw(page);
+        tagged::end_artifact(page);
     }
 
     fn remaining(&self) -> f32 {
@@ -328,7 +350,7 @@ impl Layout {
         for l in lines {
             self.ensure(lh);
             let baseline = self.y - size * ASCENT;
-            push_text(self.ops(), face, size, colour.clone(), x, baseline, l);
+            self.text(face, size, colour.clone(), x, baseline, l);
             self.y -= lh;
         }
     }
@@ -344,14 +366,20 @@ impl Layout {
         let lh = size * 1.25;
         self.gap(size * 0.7);
         self.ensure(lh * lines.len() as f32 + keep);
+        self.tags.open(match level {
+            0 | 1 => "H1",
+            2 => "H2",
+            _ => "H3",
+        });
         for l in &lines {
             let baseline = self.y - size * ASCENT;
-            push_text(self.ops(), Face::Bold, size, ink(), MARGIN_X, baseline, l);
+            self.text(Face::Bold, size, ink(), MARGIN_X, baseline, l);
             self.y -= lh;
         }
+        self.tags.close();
         if level <= 1 {
             let y = self.y - 1.5;
-            push_hrule(self.ops(), rule(), 0.6, MARGIN_X, MARGIN_X + CONTENT_W, y);
+            self.decoration(|ops| push_hrule(ops, rule(), 0.6, MARGIN_X, MARGIN_X + CONTENT_W, y));
             self.y -= 4.0;
         }
         self.y -= size * 0.3;
@@ -359,7 +387,9 @@ impl Layout {
 
     fn paragraph(&mut self, text: &str, size: f32, colour: Color) {
         let lines = wrap(text, Face::Regular, size, CONTENT_W);
+        self.tags.open("P");
         self.lines(&lines, Face::Regular, size, &colour, MARGIN_X);
+        self.tags.close();
         self.y -= size * 0.6;
     }
 
@@ -373,70 +403,65 @@ impl Layout {
         let val_x = MARGIN_X + key_w;
         let val_w = CONTENT_W - key_w;
         let lh = BODY * LEADING;
+        // A two-column table to assistive technology: each label heads its row.
+        self.tags.open("Table");
         for (k, v) in kvs {
             let kl = wrap(k, Face::Regular, BODY, key_w - 10.0);
             let vl = wrap(v, Face::Regular, BODY, val_w);
             let rows = kl.len().max(vl.len());
             // Rows are short; keep each together.
             self.ensure(lh * rows as f32);
-            for i in 0..rows {
-                let baseline = self.y - BODY * ASCENT;
-                if let Some(k) = kl.get(i) {
-                    push_text(
-                        self.ops(),
-                        Face::Regular,
-                        BODY,
-                        muted(),
-                        MARGIN_X,
-                        baseline,
-                        k,
-                    );
-                }
-                if let Some(v) = vl.get(i) {
-                    push_text(self.ops(), Face::Regular, BODY, ink(), val_x, baseline, v);
-                }
-                self.y -= lh;
+            let top = self.y;
+            self.tags.open("TR");
+            self.tags.open_header_cell("Row");
+            for (i, k) in kl.iter().enumerate() {
+                let baseline = top - i as f32 * lh - BODY * ASCENT;
+                self.text(Face::Regular, BODY, muted(), MARGIN_X, baseline, k);
             }
+            self.tags.close();
+            self.tags.open("TD");
+            for (i, v) in vl.iter().enumerate() {
+                let baseline = top - i as f32 * lh - BODY * ASCENT;
+                self.text(Face::Regular, BODY, ink(), val_x, baseline, v);
+            }
+            self.tags.close();
+            self.tags.close();
+            self.y = top - lh * rows as f32;
         }
+        self.tags.close();
         self.y -= BODY * 0.6;
     }
 
     fn bullets(&mut self, items: &[String]) {
         let indent = 13.0;
         let lh = BODY * LEADING;
+        self.tags.open("L");
         for item in items {
             let lines = wrap(item, Face::Regular, BODY, CONTENT_W - indent);
             // Keep short items together; long ones may break between lines.
             if lines.len() <= 4 {
                 self.ensure(lh * lines.len() as f32);
             }
+            self.tags.open("LI");
             for (i, l) in lines.iter().enumerate() {
                 self.ensure(lh);
                 let baseline = self.y - BODY * ASCENT;
                 if i == 0 {
-                    push_text(
-                        self.ops(),
-                        Face::Regular,
-                        BODY,
-                        muted(),
-                        MARGIN_X + 2.0,
-                        baseline,
-                        "•",
-                    );
+                    self.tags.open("Lbl");
+                    self.text(Face::Regular, BODY, muted(), MARGIN_X + 2.0, baseline, "•");
+                    self.tags.close();
+                    self.tags.open("LBody");
                 }
-                push_text(
-                    self.ops(),
-                    Face::Regular,
-                    BODY,
-                    ink(),
-                    MARGIN_X + indent,
-                    baseline,
-                    l,
-                );
+                self.text(Face::Regular, BODY, ink(), MARGIN_X + indent, baseline, l);
                 self.y -= lh;
             }
+            if !lines.is_empty() {
+                self.tags.close();
+            }
+            self.tags.close();
             self.y -= 1.5;
         }
+        self.tags.close();
         self.y -= BODY * 0.5;
     }
 
@@ -487,44 +512,78 @@ impl Layout {
         };
         let header_h = header_cells.as_ref().map_or(0.0, |h| row_h(h));
 
+        // `header`: the first header row is the table's real header (TH cells); a header
+        // repeated on a continuation page is an artifact, as it is only a reading aid there.
+        #[derive(PartialEq)]
+        enum RowKind {
+            Header,
+            RepeatedHeader,
+            Body,
+        }
         let draw_row = |layout: &mut Layout,
                         cells: &[Vec<String>],
                         face: Face,
                         fill: Option<Color>,
-                        h: f32| {
+                        h: f32,
+                        kind: RowKind| {
             let y = layout.y;
-            let ops = layout.ops();
             if let Some(fill) = fill {
-                push_fill_rect(ops, fill, MARGIN_X, y, CONTENT_W, h);
+                layout.decoration(|ops| push_fill_rect(ops, fill, MARGIN_X, y, CONTENT_W, h));
             }
-            for (i, lines) in cells.iter().enumerate() {
-                for (j, l) in lines.iter().enumerate() {
-                    let baseline = y - pad_y - j as f32 * lh - TABLE * ASCENT - (lh - TABLE) / 2.0;
-                    push_text(ops, face, TABLE, ink(), col_x[i] + pad_x, baseline, l);
+            if kind == RowKind::RepeatedHeader {
+                let ops = layout.ops();
+                tagged::begin_artifact(ops);
+                for (i, lines) in cells.iter().enumerate() {
+                    for (j, l) in lines.iter().enumerate() {
+                        let baseline =
+                            y - pad_y - j as f32 * lh - TABLE * ASCENT - (lh - TABLE) / 2.0;
+                        push_text(ops, face, TABLE, ink(), col_x[i] + pad_x, baseline, l);
+                    }
                 }
+                tagged::end_artifact(ops);
+            } else {
+                layout.tags.open("TR");
+                for (i, lines) in cells.iter().enumerate() {
+                    if kind == RowKind::Header {
+                        layout.tags.open_header_cell("Column");
+                    } else {
+                        layout.tags.open("TD");
+                    }
+                    for (j, l) in lines.iter().enumerate() {
+                        let baseline =
+                            y - pad_y - j as f32 * lh - TABLE * ASCENT - (lh - TABLE) / 2.0;
+                        layout.text(face, TABLE, ink(), col_x[i] + pad_x, baseline, l);
+                    }
+                    layout.tags.close();
+                }
+                layout.tags.close();
             }
-            push_hrule(ops, grey(0.86), 0.4, MARGIN_X, MARGIN_X + CONTENT_W, y - h);
+            layout.decoration(|ops| {
+                push_hrule(ops, grey(0.86), 0.4, MARGIN_X, MARGIN_X + CONTENT_W, y - h)
+            });
             layout.y -= h;
         };
-        let draw_header = |layout: &mut Layout| {
+        let draw_header = |layout: &mut Layout, kind: RowKind| {
             if let Some(h) = &header_cells {
-                draw_row(layout, h, Face::Bold, Some(grey(0.92)), header_h);
+                draw_row(layout, h, Face::Bold, Some(grey(0.92)), header_h, kind);
             }
         };
 
         let body: Vec<Vec<Vec<String>>> = rows.iter().map(|r| wrap_row(r, Face::Regular)).collect();
         let first_h = body.first().map_or(0.0, |r| row_h(r));
         self.ensure(header_h + first_h);
-        draw_header(self);
+        self.tags.open("Table");
+        draw_header(self, RowKind::Header);
         for (n, cells) in body.iter().enumerate() {
             let h = row_h(cells);
             if h > self.remaining() + 0.01 {
                 self.new_page();
-                draw_header(self);
+                draw_header(self, RowKind::RepeatedHeader);
             }
             let fill = (n % 2 == 1).then(|| grey(0.975));
-            draw_row(self, cells, Face::Regular, fill, h);
+            draw_row(self, cells, Face::Regular, fill, h, RowKind::Body);
         }
+        self.tags.close();
         self.y -= BODY * 0.9;
     }
 
@@ -534,7 +593,12 @@ impl Layout {
         self.gap(2.0);
         self.ensure(height);
         let top = self.y;
-        let used = plotters_pdf::draw_chart(self.ops(), chart, MARGIN_X, top, CONTENT_W);
+        self.tags.open_figure(chart.alt_text());
+        let page = self.pages.last_mut().expect("layout always has a page");
+        self.tags.begin_content(page);
+        let used = plotters_pdf::draw_chart(page, chart, MARGIN_X, top, CONTENT_W);
+        Tags::end_content(page);
+        self.tags.close();
         self.y -= used + BODY * 0.8;
     }
 
@@ -564,6 +628,8 @@ impl Layout {
             return;
         }
         self.gap(2.0);
+        self.tags.open("Div");
+        self.tags.open("P");
         let mut rest = &lines[..];
         while !rest.is_empty() {
             let fit = ((self.remaining() - 2.0 * pad) / lh).floor().max(0.0) as usize;
@@ -580,12 +646,13 @@ impl Layout {
             let n = fit.clamp(1, rest.len());
             let h = n as f32 * lh + 2.0 * pad;
             let y = self.y;
-            let ops = self.ops();
-            push_fill_rect(ops, tint.clone(), MARGIN_X, y, CONTENT_W, h);
-            push_fill_rect(ops, bar.clone(), MARGIN_X, y, bar_w, h);
+            self.decoration(|ops| {
+                push_fill_rect(ops, tint.clone(), MARGIN_X, y, CONTENT_W, h);
+                push_fill_rect(ops, bar.clone(), MARGIN_X, y, bar_w, h);
+            });
             for (i, (face, l)) in rest[..n].iter().enumerate() {
                 let baseline = y - pad - i as f32 * lh - BODY * ASCENT;
-                push_text(ops, *face, BODY, ink(), inner_x, baseline, l);
+                self.text(*face, BODY, ink(), inner_x, baseline, l);
             }
             self.y -= h;
             rest = &rest[n..];
@@ -593,6 +660,8 @@ impl Layout {
                 self.new_page();
             }
         }
+        self.tags.close();
+        self.tags.close();
         self.y -= BODY * 0.9;
     }
 
@@ -633,7 +702,9 @@ impl Layout {
 
 /// Running header and footer for page `n` of `m`.
 fn running_ops(doc: &Document, n: usize, m: usize) -> Vec<Op> {
-    let mut ops = Vec::with_capacity(24);
+    let mut ops = Vec::with_capacity(26);
+    // Pagination artifacts (ISO 32000-1, 14.8.2.2.2): not part of the reading order.
+    tagged::begin_artifact(&mut ops);
     let right = MARGIN_X + CONTENT_W;
     let header_base = PAGE_H - 12.5 * MM;
     if !doc.header.is_empty() {
@@ -679,6 +750,7 @@ fn running_ops(doc: &Document, n: usize, m: usize) -> Vec<Op> {
             &f,
         );
     }
+    tagged::end_artifact(&mut ops);
     ops
 }
 
@@ -806,6 +878,7 @@ pub fn render_pdf(doc: &Document) -> Result<Vec<u8>, PdfError> {
     for (i, b) in doc.blocks.iter().enumerate() {
         layout.block(b, doc.blocks.get(i + 1));
     }
+    let tags = layout.tags;
     let mut pages = layout.pages;
     let m = pages.len();
     for (i, ops) in pages.iter_mut().enumerate() {
@@ -834,8 +907,8 @@ pub fn render_pdf(doc: &Document) -> Result<Vec<u8>, PdfError> {
     let mut warnings = Vec::new();
     let mut lo = printpdf::to_lopdf_doc(&pdf, &opts, &mut warnings);
     drop(pdf);
-    // Transparency (chart tints) needs PDF 1.4.
-    lo.version = "1.4".to_string();
+    // Tagged PDF for PDF/UA-1 (ISO 14289-1) is based on PDF 1.7 (ISO 32000-1).
+    lo.version = "1.7".to_string();
 
     // Metadata: ours, with the caller's date instead of printpdf's defaults (which also claim
     // PDF/X conformance).
@@ -875,6 +948,25 @@ pub fn render_pdf(doc: &Document) -> Result<Vec<u8>, PdfError> {
     );
     // Drop the old info dictionary printpdf wrote (now unreferenced).
     lo.prune_objects();
+    let producer = concat!(
+        "cohortpress ",
+        env!("CARGO_PKG_VERSION"),
+        " (printpdf 0.12)"
+    );
+    tagged::write_structure(
+        &mut lo,
+        &tags,
+        &tagged::Meta {
+            title: &doc.title,
+            author: &doc.author,
+            subject: &doc.subject,
+            lang: "en",
+            created: &doc.created.format("%Y-%m-%dT%H:%M:%S").to_string(),
+            producer,
+        },
+        text_string,
+    )
+    .map_err(PdfError::Write)?;
 
     // Translucency states used by charts, in the shared ExtGState dictionary every page uses.
     if !alpha_states.is_empty() {
@@ -1117,7 +1209,7 @@ pub(crate) mod tests {
     #[test]
     fn multi_page_document_has_header_footer_and_page_numbers() {
         let bytes = render_pdf(&sample_document()).unwrap();
-        assert!(bytes.starts_with(b"%PDF-1.4"));
+        assert!(bytes.starts_with(b"%PDF-1.7"));
         let texts = page_texts(&bytes);
         let n = texts.len();
         assert!(n >= 3, "sample spans at least three pages, got {n}");
@@ -1139,6 +1231,248 @@ pub(crate) mod tests {
             "Unicode name extracts: {}",
             texts[0]
         );
+    }
+
+    /// Roles of the structure tree in reading order (depth first), with each Figure's Alt and
+    /// each TH's scope, and the MCIDs each element claims per page.
+    fn structure(doc: &lopdf::Document) -> (Vec<String>, BTreeMap<u32, Vec<i64>>) {
+        fn walk(
+            doc: &lopdf::Document,
+            pages: &BTreeMap<lopdf::ObjectId, u32>,
+            obj: &Object,
+            roles: &mut Vec<String>,
+            mcids: &mut BTreeMap<u32, Vec<i64>>,
+        ) {
+            let dict = match obj {
+                Object::Reference(r) => doc.get_dictionary(*r).unwrap(),
+                Object::Dictionary(d) => d,
+                _ => panic!("unexpected kid {obj:?}"),
+            };
+            if dict.get(b"Type").ok() == Some(&Object::Name(b"MCR".to_vec())) {
+                let page = pages[&dict.get(b"Pg").unwrap().as_reference().unwrap()];
+                let mcid = dict.get(b"MCID").unwrap().as_i64().unwrap();
+                mcids.entry(page).or_default().push(mcid);
+                return;
+            }
+            let role =
+                String::from_utf8(dict.get(b"S").unwrap().as_name().unwrap().to_vec()).unwrap();
+            let extra = match role.as_str() {
+                "Figure" => format!(
+                    "[{}]",
+                    String::from_utf8_lossy(dict.get(b"Alt").unwrap().as_str().unwrap())
+                ),
+                "TH" => format!(
+                    "[{}]",
+                    String::from_utf8_lossy(
+                        dict.get(b"A")
+                            .unwrap()
+                            .as_dict()
+                            .unwrap()
+                            .get(b"Scope")
+                            .unwrap()
+                            .as_name()
+                            .unwrap()
+                    )
+                ),
+                _ => String::new(),
+            };
+            roles.push(format!("{role}{extra}"));
+            for k in dict.get(b"K").unwrap().as_array().unwrap() {
+                walk(doc, pages, k, roles, mcids);
+            }
+        }
+        let pages: BTreeMap<lopdf::ObjectId, u32> =
+            doc.get_pages().into_iter().map(|(n, id)| (id, n)).collect();
+        let catalog = doc.catalog().unwrap();
+        let root = doc
+            .get_dictionary(
+                catalog
+                    .get(b"StructTreeRoot")
+                    .unwrap()
+                    .as_reference()
+                    .unwrap(),
+            )
+            .unwrap();
+        let mut roles = Vec::new();
+        let mut mcids = BTreeMap::new();
+        walk(doc, &pages, root.get(b"K").unwrap(), &mut roles, &mut mcids);
+        (roles, mcids)
+    }
+
+    #[test]
+    fn the_pdf_is_tagged_with_headings_lists_tables_figures_and_artifacts() {
+        let bytes = render_pdf(&sample_document()).unwrap();
+        let doc = lopdf::Document::load_mem(&bytes).unwrap();
+        let catalog = doc.catalog().unwrap();
+        let mark = catalog.get(b"MarkInfo").unwrap().as_dict().unwrap();
+        assert_eq!(mark.get(b"Marked").unwrap(), &Object::Boolean(true));
+        assert_eq!(catalog.get(b"Lang").unwrap().as_str().unwrap(), b"en");
+        let prefs = catalog
+            .get(b"ViewerPreferences")
+            .unwrap()
+            .as_dict()
+            .unwrap();
+        assert_eq!(
+            prefs.get(b"DisplayDocTitle").unwrap(),
+            &Object::Boolean(true)
+        );
+        let xmp = doc
+            .get_object(catalog.get(b"Metadata").unwrap().as_reference().unwrap())
+            .unwrap()
+            .as_stream()
+            .unwrap();
+        let xmp = String::from_utf8(xmp.content.clone()).unwrap();
+        assert!(xmp.contains("<pdfuaid:part>1</pdfuaid:part>"), "{xmp}");
+        assert!(xmp.contains("Monthly report — Łucja Nguyễn-Øberg"), "{xmp}");
+
+        let (roles, mcids) = structure(&doc);
+        let position = |role: &str| roles.iter().position(|r| r == role);
+        // Reading order: the title, its key-value table, the paragraph, the figure…
+        assert_eq!(roles[0], "Document");
+        assert_eq!(roles[1], "H1");
+        assert_eq!(roles[2], "Table");
+        assert_eq!(roles[3], "TR");
+        assert_eq!(roles[4], "TH[Row]");
+        assert!(
+            position("P") < position("Figure[Weight fell from 94 to 88.5 kg over twelve weeks]")
+        );
+        for role in ["H2", "L", "LI", "Lbl", "LBody", "TH[Column]", "TD", "Div"] {
+            assert!(position(role).is_some(), "{role} missing from {roles:?}");
+        }
+        // The 60-row weigh-in table: one header row and 60 body rows, although its header is
+        // drawn again on every continuation page (as an artifact).
+        let last_table = roles.iter().rposition(|r| r == "Table").unwrap();
+        let rows = roles[last_table..]
+            .iter()
+            .take_while(|r| !r.starts_with("Div"))
+            .filter(|r| *r == "TR")
+            .count();
+        assert_eq!(rows, 61);
+
+        // Every marked-content sequence on every page is claimed exactly once, MCIDs 0..n, and
+        // the parent tree has an entry for each.
+        let tree_root = doc
+            .get_dictionary(
+                catalog
+                    .get(b"StructTreeRoot")
+                    .unwrap()
+                    .as_reference()
+                    .unwrap(),
+            )
+            .unwrap();
+        let parent_tree = doc
+            .get_dictionary(
+                tree_root
+                    .get(b"ParentTree")
+                    .unwrap()
+                    .as_reference()
+                    .unwrap(),
+            )
+            .unwrap();
+        let nums = parent_tree.get(b"Nums").unwrap().as_array().unwrap();
+        for (n, page_id) in doc.get_pages() {
+            let content = doc.get_and_decode_page_content(page_id).unwrap();
+            let mut in_page: Vec<i64> = content
+                .operations
+                .iter()
+                .filter(|op| op.operator == "BDC")
+                .filter_map(|op| {
+                    op.operands
+                        .get(1)?
+                        .as_dict()
+                        .ok()?
+                        .get(b"MCID")
+                        .ok()?
+                        .as_i64()
+                        .ok()
+                })
+                .collect();
+            let artifacts = content
+                .operations
+                .iter()
+                .filter(|op| {
+                    op.operator == "BMC" && op.operands[0] == Object::Name(b"Artifact".to_vec())
+                })
+                .count();
+            assert!(
+                artifacts >= 1,
+                "page {n}: the running header and footer are artifacts"
+            );
+            let begins = content
+                .operations
+                .iter()
+                .filter(|op| op.operator == "BDC" || op.operator == "BMC")
+                .count();
+            let ends = content
+                .operations
+                .iter()
+                .filter(|op| op.operator == "EMC")
+                .count();
+            assert_eq!(begins, ends, "page {n}: balanced marked content");
+            let mut claimed = mcids.get(&n).cloned().unwrap_or_default();
+            claimed.sort();
+            in_page.sort();
+            assert_eq!(
+                in_page,
+                (0..in_page.len() as i64).collect::<Vec<_>>(),
+                "page {n}"
+            );
+            assert_eq!(claimed, in_page, "page {n}");
+            let page = doc.get_dictionary(page_id).unwrap();
+            let key = page.get(b"StructParents").unwrap().as_i64().unwrap();
+            assert_eq!(nums[2 * key as usize].as_i64().unwrap(), key);
+            assert_eq!(
+                nums[2 * key as usize + 1].as_array().unwrap().len(),
+                in_page.len()
+            );
+        }
+    }
+
+    /// `pdfinfo` (poppler-utils), when installed, reads the same structure: "Tagged: yes" and
+    /// the tree in reading order. Skipped with a message when it is not installed.
+    #[test]
+    fn poppler_sees_a_tagged_pdf_when_installed() {
+        let bytes = render_pdf(&sample_document()).unwrap();
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("tagged.pdf");
+        std::fs::write(&path, &bytes).unwrap();
+        let Ok(info) = std::process::Command::new("pdfinfo").arg(&path).output() else {
+            eprintln!("skipped: pdfinfo (poppler-utils) is not installed");
+            return;
+        };
+        let info = String::from_utf8_lossy(&info.stdout);
+        assert!(
+            info.lines()
+                .any(|l| l.starts_with("Tagged:") && l.ends_with("yes")),
+            "{info}"
+        );
+        let tree = std::process::Command::new("pdfinfo")
+            .arg("-struct")
+            .arg(&path)
+            .output()
+            .unwrap();
+        let tree = String::from_utf8_lossy(&tree.stdout);
+        // Element names as poppler prints them, one per line, indented by depth.
+        let names: Vec<&str> = tree
+            .lines()
+            .filter_map(|l| l.split_whitespace().next())
+            .map(|w| w.trim_end_matches(':'))
+            .collect();
+        let first = |r: &str| {
+            names
+                .iter()
+                .position(|n| *n == r)
+                .unwrap_or_else(|| panic!("{r} not in {tree}"))
+        };
+        let order = [
+            first("Document"),
+            first("H1"),
+            first("Figure"),
+            first("H2"),
+            first("L"),
+        ];
+        assert!(order.windows(2).all(|w| w[0] < w[1]), "{tree}");
+        assert!(names.contains(&"LBody") && names.contains(&"TD"), "{tree}");
     }
 
     #[test]

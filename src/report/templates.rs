@@ -166,8 +166,12 @@ fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, Templa
             .expect("walk stays inside")
             .to_path_buf();
         let name = rel.to_string_lossy().replace('\\', "/");
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| TemplateError::File(path.display().to_string(), e.to_string()))?;
+        // Opened without following links, regular files only (a link swapped in after the
+        // walk is still refused).
+        let text = crate::limits::read_input(path)
+            .map_err(|e| e.to_string())
+            .and_then(|b| String::from_utf8(b).map_err(|_| "the file is not UTF-8 text".into()))
+            .map_err(|e| TemplateError::File(path.display().to_string(), e))?;
         out.push((name, text, path.display().to_string()));
     }
     Ok(out)

@@ -724,3 +724,338 @@ fn binary_run_contains_a_failing_module_to_its_participant() {
     // The module after the failing one ran for XP-02 too.
     assert_eq!(rows["XP-02"]["steps.mean_daily_steps"], "5100");
 }
+
+// ---------------------------------------------------------------------------------------------
+// Modules that leave processes behind. `fake.py ID MODE@PIDFILE` starts a `sleep 1000` child and
+// an orphaned `sleep 1000` grandchild on every call, both holding its standard output open, and
+// records their pids and its working folder in PIDFILE.
+// ---------------------------------------------------------------------------------------------
+
+/// One call of a lingering fake module, as recorded in its pid file.
+#[derive(Debug)]
+struct Lingered {
+    /// The module's working folder and how many entries it held when the module started.
+    cwd: PathBuf,
+    entries: usize,
+    /// The module and every process it started.
+    pids: Vec<u32>,
+}
+
+fn lingered(pid_file: &Path) -> Vec<Lingered> {
+    let text = std::fs::read_to_string(pid_file).expect("the module wrote its pid file");
+    let mut calls: Vec<Lingered> = Vec::new();
+    for line in text.lines() {
+        let mut parts = line.splitn(3, ' ');
+        let pid: u32 = parts.next().unwrap().parse().unwrap();
+        match parts.next().unwrap() {
+            "-" => calls.last_mut().unwrap().pids.push(pid),
+            cwd => calls.push(Lingered {
+                cwd: PathBuf::from(cwd),
+                entries: parts.next().unwrap().parse().unwrap(),
+                pids: vec![pid],
+            }),
+        }
+    }
+    calls
+}
+
+/// Whether process `pid` is alive: it has an entry in /proc and is not a zombie (a killed
+/// process its parent has not yet reaped).
+#[cfg(target_os = "linux")]
+fn alive(pid: u32) -> bool {
+    match std::fs::read_to_string(format!("/proc/{pid}/stat")) {
+        // The state follows the command name in parentheses.
+        Ok(stat) => stat
+            .rsplit_once(')')
+            .and_then(|(_, rest)| rest.split_whitespace().next())
+            .is_some_and(|state| state != "Z" && state != "X"),
+        Err(_) => false,
+    }
+}
+
+/// Asserts that none of `pids` is running. A process killed with SIGKILL is gone within
+/// moments; the loop only bridges the time the kernel takes to tear it down.
+#[cfg(target_os = "linux")]
+fn assert_none_survive(pids: &[u32]) {
+    let mut left: Vec<u32> = pids.to_vec();
+    for _ in 0..250 {
+        left.retain(|&p| alive(p));
+        if left.is_empty() {
+            return;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    let shown: Vec<String> = left
+        .iter()
+        .map(|p| {
+            let cmd = std::fs::read(format!("/proc/{p}/cmdline")).unwrap_or_default();
+            format!("{p} ({})", String::from_utf8_lossy(&cmd).replace('\0', " "))
+        })
+        .collect();
+    panic!("processes of the module survived the run: {shown:?}");
+}
+
+/// The fixture with the fake module as `bad` (`MODE@PIDFILE`, misbehaving for `only_for` if
+/// given) and the example as `steps`. Returns the test and the pid file.
+fn lingering_program(mode: &str, only_for: Option<&str>, timeout: f64) -> (ProgramTest, PathBuf) {
+    let t = fixture_with_example();
+    std::fs::copy(
+        fixture("fake-plugins/fake.py"),
+        t.dir.join("plugins/fake.py"),
+    )
+    .unwrap();
+    let pid_file = t.dir.parent().unwrap().join("module-pids.txt");
+    let who = only_for.map(|p| format!(", {p}")).unwrap_or_default();
+    std::fs::write(
+        t.dir.join("program.yaml"),
+        format!(
+            "format_version: 1\n\
+             program: {{id: ext-fixture, title: Fixture, start: 2027-03-01, end: 2027-05-31}}\n\
+             modules:\n  \
+               - id: bad\n    command: [plugins/fake.py, bad, {mode}@{}{who}]\n    \
+                 timeout_seconds: {timeout}\n  \
+               - id: steps\n    command: [plugins/step_summary.py]\n",
+            pid_file.display()
+        ),
+    )
+    .unwrap();
+    (t, pid_file)
+}
+
+#[cfg(target_os = "linux")]
+#[test]
+fn binary_uses_the_answer_of_a_module_that_leaves_processes_behind_and_stops_them() {
+    // A timeout far longer than the test: were the answer awaited until every process holding
+    // the pipe let go, the calls would time out and the values below would be missing.
+    let (t, pid_file) = lingering_program("ok", None, 600.0);
+    let out = t.run(&MARCH);
+    assert_eq!(out.code, cohortpress::exit_code::SUCCESS, "{}", out.stderr);
+    let rows = participants_csv(&t);
+    assert_eq!(rows["XP-01"]["bad.weigh_ins"], "5");
+    assert_eq!(rows["XP-02"]["bad.weigh_ins"], "4");
+    assert_eq!(rows["XP-01"]["module_failures"], "");
+    assert_eq!(rows["XP-02"]["module_failures"], "");
+
+    let calls = lingered(&pid_file);
+    // The handshake and one computation per participant.
+    assert_eq!(calls.len(), 3, "{calls:?}");
+    let pids: Vec<u32> = calls.iter().flat_map(|c| c.pids.iter().copied()).collect();
+    assert_eq!(pids.len(), 9, "{calls:?}");
+    assert_none_survive(&pids);
+
+    // Each call ran in a fresh, empty working folder of its own, outside the program folder,
+    // removed after the call.
+    for c in &calls {
+        assert_eq!(c.entries, 0, "{c:?}");
+        assert!(!c.cwd.starts_with(&t.dir), "{c:?}");
+        assert!(!c.cwd.exists(), "{c:?}");
+    }
+    let mut folders: Vec<&PathBuf> = calls.iter().map(|c| &c.cwd).collect();
+    folders.sort();
+    folders.dedup();
+    assert_eq!(folders.len(), 3);
+}
+
+#[cfg(target_os = "linux")]
+#[test]
+fn binary_stops_a_hanging_module_with_everything_it_started() {
+    let (t, pid_file) = lingering_program("sleep", Some("XP-02"), 2.0);
+    let out = t.run(&MARCH);
+    assert_eq!(
+        out.code,
+        cohortpress::exit_code::MODULE_FAILED,
+        "{}",
+        out.stderr
+    );
+    assert!(
+        out.stderr.contains(
+            "XP-02: module bad failed: external module: did not finish within 2 s and was \
+             stopped"
+        ),
+        "{}",
+        out.stderr
+    );
+    let rows = participants_csv(&t);
+    assert_eq!(rows["XP-01"]["bad.weigh_ins"], "5");
+    assert_eq!(rows["XP-02"]["bad.weigh_ins"], "");
+    assert_eq!(rows["XP-02"]["steps.mean_daily_steps"], "5100");
+
+    let calls = lingered(&pid_file);
+    assert_eq!(calls.len(), 3, "{calls:?}");
+    let pids: Vec<u32> = calls.iter().flat_map(|c| c.pids.iter().copied()).collect();
+    assert_none_survive(&pids);
+}
+
+#[test]
+fn an_answer_that_fails_validation_says_so() {
+    assert_eq!(
+        contained("invalid", 20.0),
+        "external module: it answered, but its `result` failed validation: table `pairs` row 2 \
+         has 2 cells for 1 columns"
+    );
+}
+
+#[cfg(target_os = "linux")]
+#[test]
+fn an_invalid_answer_with_processes_left_behind_is_a_validation_failure_not_a_timeout() {
+    let tmp = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let pid_file = tmp.path().join("pids");
+    let m = contained(&format!("invalid@{}", pid_file.display()), 600.0);
+    assert!(
+        m.starts_with("external module: it answered, but its `result` failed validation"),
+        "{m}"
+    );
+    let pids: Vec<u32> = lingered(&pid_file)
+        .iter()
+        .flat_map(|c| c.pids.iter().copied())
+        .collect();
+    // The handshake and the two participants.
+    assert_eq!(pids.len(), 9);
+    assert_none_survive(&pids);
+}
+
+/// Every cell of every CSV file under `dir`, by file name.
+fn csv_cells(dir: &Path) -> BTreeMap<String, Vec<String>> {
+    let mut files = BTreeMap::new();
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().is_some_and(|x| x == "csv") {
+            let mut reader = csv::ReaderBuilder::new()
+                .has_headers(false)
+                .flexible(true)
+                .from_path(&path)
+                .unwrap();
+            let cells = reader
+                .records()
+                .flat_map(|r| r.unwrap().iter().map(String::from).collect::<Vec<_>>())
+                .collect();
+            files.insert(
+                path.file_name().unwrap().to_string_lossy().into_owned(),
+                cells,
+            );
+        }
+    }
+    files
+}
+
+#[test]
+fn binary_escapes_formula_like_text_in_every_csv_and_keeps_numbers() {
+    let t = fixture_with_example();
+    std::fs::copy(
+        fixture("fake-plugins/fake.py"),
+        t.dir.join("plugins/fake.py"),
+    )
+    .unwrap();
+    std::fs::write(
+        t.dir.join("program.yaml"),
+        "format_version: 1\n\
+         program: {id: ext-fixture, title: Fixture, start: 2027-03-01, end: 2027-05-31}\n\
+         modules:\n  \
+           - id: txt\n    command: [plugins/fake.py, txt, formula]\n",
+    )
+    .unwrap();
+    let profile = t.dir.join("participants/XP-01/profile.yaml");
+    let text = std::fs::read_to_string(&profile).unwrap().replace(
+        "groups: { site: East Yard }",
+        "groups: { site: '=HYPERLINK(\"http://x\",\"y\")' }",
+    );
+    std::fs::write(&profile, text).unwrap();
+    // An extra column named like a formula: named in the data-quality list.
+    let weights = t.dir.join("participants/XP-02/weights.csv");
+    let text: String = std::fs::read_to_string(&weights)
+        .unwrap()
+        .lines()
+        .enumerate()
+        .map(|(i, l)| format!("{l},{}\n", if i == 0 { "@cmd" } else { "" }))
+        .collect();
+    std::fs::write(&weights, text).unwrap();
+
+    let out = t.run(&MARCH);
+    assert!(
+        out.code == cohortpress::exit_code::SUCCESS || out.code == cohortpress::exit_code::WARNINGS,
+        "{}",
+        out.stderr
+    );
+    let rows = participants_csv(&t);
+    assert_eq!(
+        rows["XP-01"]["group_site"],
+        "'=HYPERLINK(\"http://x\",\"y\")"
+    );
+    assert_eq!(rows["XP-02"]["group_site"], "West Yard");
+    assert_eq!(rows["XP-01"]["txt.note"], "'+cmd");
+    assert_eq!(rows["XP-01"]["txt.change_kg"], "-3.2");
+
+    let files = csv_cells(&t.dir.join("reports/metrics"));
+    let has = |file: &str, cell: &str| files[file].iter().any(|c| c == cell);
+    assert!(
+        has("tables.csv", "'@SUM(A1:A2)"),
+        "{:?}",
+        files["tables.csv"]
+    );
+    assert!(has("tables.csv", "'-2+3"), "{:?}", files["tables.csv"]);
+    assert!(has("tables.csv", "-3.2"), "{:?}", files["tables.csv"]);
+    assert!(has("weekly.csv", "'@kg"), "{:?}", files["weekly.csv"]);
+    assert!(has("weekly.csv", "-3.2"), "{:?}", files["weekly.csv"]);
+    assert!(
+        has("data-quality.csv", "'@cmd"),
+        "{:?}",
+        files["data-quality.csv"]
+    );
+    // No cell of any CSV begins like a formula, except plain numbers.
+    assert_eq!(files.len(), 4, "{:?}", files.keys());
+    for (file, cells) in &files {
+        for c in cells {
+            let number = c.parse::<f64>().is_ok_and(f64::is_finite);
+            assert!(
+                number || !c.starts_with(['=', '+', '-', '@', '\t', '\r']),
+                "{file}: `{c}`"
+            );
+        }
+    }
+}
+
+#[cfg(target_os = "linux")]
+#[test]
+fn binary_interrupted_by_sigterm_stops_the_running_modules() {
+    use std::os::unix::process::ExitStatusExt;
+    // XP-02's call hangs (30 s) well inside its timeout; the run is stopped while it does.
+    let (t, pid_file) = lingering_program("sleep", Some("XP-02"), 600.0);
+    let args: Vec<String> = MARCH
+        .iter()
+        .map(|a| a.replace("{dir}", &t.dir.to_string_lossy()))
+        .collect();
+    let mut run = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+        .args(&args)
+        .current_dir(&t.dir)
+        .env_clear()
+        .env("PATH", std::env::var("PATH").unwrap_or_default())
+        .env("HOME", t.dir.parent().unwrap())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    // Wait until the handshake and both computations have started (each records three pids).
+    let mut calls = Vec::new();
+    for _ in 0..3000 {
+        calls = std::fs::read_to_string(&pid_file)
+            .map(|_| lingered(&pid_file))
+            .unwrap_or_default();
+        if calls.len() == 3 && calls.iter().all(|c| c.pids.len() == 3) {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    assert_eq!(calls.len(), 3, "{calls:?}");
+    let status = std::process::Command::new("kill")
+        .args(["-TERM", &run.id().to_string()])
+        .status()
+        .unwrap();
+    assert!(status.success());
+    let ended = run.wait().unwrap();
+    assert_eq!(ended.signal(), Some(15), "{ended:?}");
+    let pids: Vec<u32> = calls.iter().flat_map(|c| c.pids.iter().copied()).collect();
+    assert_none_survive(&pids);
+    for c in &calls {
+        assert!(!c.cwd.exists(), "{c:?}");
+    }
+}

@@ -87,7 +87,9 @@ fn names_cannot_inject_html_and_ids_cannot_escape_the_output_folder() {
     );
     let quality = std::fs::read_to_string(Path::new(&o).join("metrics/data-quality.csv")).unwrap();
     assert!(
-        quality.contains("participants/SG-LINK,,,,a link in the participants folder is skipped"),
+        quality.contains(
+            "error,SG-LINK,participants/SG-LINK,,,,\"the participant folder is a symbolic link; links are not followed"
+        ),
         "{quality}"
     );
 
@@ -192,13 +194,14 @@ fn yaml_alias_bombs_and_deep_nesting_are_refused() {
     );
     assert!(
         r.stderr.contains("participants/SG-001/profile.yaml:")
-            && r.stderr.contains("repetition limit exceeded"),
+            && r.stderr
+                .contains("aliases (`*name`) expand the file to more than"),
         "{}",
         r.stderr
     );
     assert!(
         r.stderr.contains("participants/SG-002/profile.yaml:")
-            && r.stderr.contains("recursion limit exceeded"),
+            && r.stderr.contains("nested more than 32 levels deep"),
         "{}",
         r.stderr
     );
@@ -226,7 +229,8 @@ fn yaml_alias_bombs_and_deep_nesting_are_refused() {
         r.stderr
     );
     assert!(
-        r.stderr.contains("repetition limit exceeded"),
+        r.stderr
+            .contains("aliases (`*name`) expand the file to more than"),
         "{}",
         r.stderr
     );
@@ -244,7 +248,7 @@ fn yaml_alias_bombs_and_deep_nesting_are_refused() {
         r.stderr
     );
     assert!(
-        r.stderr.contains("recursion limit exceeded"),
+        r.stderr.contains("nested more than 32 levels deep"),
         "{}",
         r.stderr
     );
@@ -316,6 +320,334 @@ fn oversized_files_are_refused_before_reading() {
         r.stderr.contains("program.yaml") && r.stderr.contains("larger than the limit of 1 MiB"),
         "{}",
         r.stderr
+    );
+}
+
+/// Runs the binary on `t` with a scrubbed environment plus `env`, under a virtual-memory
+/// ceiling of `ceiling_mib` MiB (`ulimit -v` through `sh`) when given.
+fn run_bin(
+    t: &ProgramTest,
+    args: &[&str],
+    env: &[(&str, &str)],
+    ceiling_mib: Option<u64>,
+) -> crate::harness::Outcome {
+    let mut cmd = match ceiling_mib {
+        Some(m) => {
+            let mut c = Command::new("sh");
+            c.arg("-c")
+                .arg(format!("ulimit -v {} && exec \"$0\" \"$@\"", m * 1024))
+                .arg(BIN);
+            c
+        }
+        None => Command::new(BIN),
+    };
+    let args: Vec<String> = args
+        .iter()
+        .map(|a| a.replace("{dir}", &t.dir.to_string_lossy()))
+        .collect();
+    cmd.args(&args)
+        .current_dir(&t.dir)
+        .env_clear()
+        .env("PATH", std::env::var("PATH").unwrap_or_default())
+        .env("HOME", t.dir.parent().unwrap());
+    for (k, v) in env {
+        cmd.env(k, v);
+    }
+    let out = cmd.output().unwrap();
+    crate::harness::Outcome {
+        code: out.status.code().unwrap_or(-1),
+        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
+        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+    }
+}
+
+/// Every regular file under `dir` (not following links) whose bytes contain `needle`.
+fn files_containing(dir: &Path, needle: &[u8]) -> Vec<String> {
+    let mut hits = Vec::new();
+    for entry in walkdir::WalkDir::new(dir).follow_links(false) {
+        let entry = entry.unwrap();
+        if entry.file_type().is_file() {
+            let bytes = std::fs::read(entry.path()).unwrap();
+            if bytes.windows(needle.len()).any(|w| w == needle) {
+                hits.push(entry.path().display().to_string());
+            }
+        }
+    }
+    hits
+}
+
+#[test]
+fn links_and_special_files_are_never_read() {
+    let t = demo(5);
+    let p = |rel: &str| t.dir.join("participants").join(rel);
+    // A unique value in the environment: no byte of it may reach any output, log or cache.
+    let secret = format!("cp-secret-{}", std::process::id());
+    std::fs::remove_file(p("SG-001/activity.csv")).unwrap();
+    std::os::unix::fs::symlink("/proc/self/environ", p("SG-001/activity.csv")).unwrap();
+    std::fs::remove_file(p("SG-002/weights.csv")).unwrap();
+    std::os::unix::fs::symlink("/etc/passwd", p("SG-002/weights.csv")).unwrap();
+    // Another participant's weigh-ins, through a relative link.
+    let other = std::fs::read_to_string(p("SG-004/weights.csv")).unwrap();
+    let other_row = other.lines().nth(5).unwrap().to_string();
+    std::fs::remove_file(p("SG-003/weights.csv")).unwrap();
+    std::os::unix::fs::symlink("../SG-004/weights.csv", p("SG-003/weights.csv")).unwrap();
+    // A FIFO where a file is expected: refused at once, never waited on.
+    std::fs::remove_file(p("SG-005/intake.csv")).unwrap();
+    assert!(
+        Command::new("mkfifo")
+            .arg(p("SG-005/intake.csv"))
+            .status()
+            .unwrap()
+            .success()
+    );
+    // A participant folder that is a link to another participant's folder.
+    std::os::unix::fs::symlink("SG-004", p("SG-006")).unwrap();
+    let o = out(&t);
+    let r = run_bin(
+        &t,
+        &[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--out",
+            &o,
+            "--formats",
+            "html",
+        ],
+        &[("COHORTPRESS_LEAK_CHECK", &secret)],
+        None,
+    );
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::PARTICIPANT_ERRORS,
+        "{}",
+        r.stderr
+    );
+    for (file, what) in [
+        ("SG-001/activity.csv", "symbolic link"),
+        ("SG-002/weights.csv", "symbolic link"),
+        ("SG-003/weights.csv", "symbolic link"),
+        (
+            "SG-005/intake.csv",
+            "a FIFO (named pipe), not a regular file",
+        ),
+    ] {
+        assert!(
+            r.stderr
+                .contains(&format!("participants/{file}: cannot read the file (it is"))
+                && r.stderr.contains(what),
+            "{file}: {}",
+            r.stderr
+        );
+    }
+    assert!(
+        r.stderr.contains(
+            "participants/SG-006: the participant folder is a symbolic link; links are not followed"
+        ),
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains("1 participants reported"), "{}", r.stderr);
+    // Only SG-004 is reported; nobody else has a report with its (or anyone's) data.
+    let reports: Vec<String> = std::fs::read_dir(Path::new(&o).join("participants"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    assert_eq!(reports, ["SG-004.html"]);
+    let scratch = t.dir.parent().unwrap();
+    assert_eq!(
+        files_containing(scratch, secret.as_bytes()),
+        Vec::<String>::new()
+    );
+    assert_eq!(files_containing(scratch, b"root:"), Vec::<String>::new());
+    // SG-004's own rows appear only in its own file (and nowhere under SG-003's name).
+    let hits = files_containing(scratch, other_row.as_bytes());
+    assert!(
+        hits.iter()
+            .all(|h| h.ends_with("participants/SG-004/weights.csv")),
+        "{hits:?}"
+    );
+    assert!(!r.stderr.contains(&secret) && !r.stdout.contains(&secret));
+
+    // `participants/` itself may be a link (e.g. to a mounted share); links inside it are
+    // still refused.
+    let moved = scratch.join("share");
+    std::fs::rename(t.dir.join("participants"), &moved).unwrap();
+    std::os::unix::fs::symlink(&moved, t.dir.join("participants")).unwrap();
+    let r = run_bin(&t, &["check", "{dir}", "--as-of", AS_OF], &[], None);
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::PARTICIPANT_ERRORS,
+        "{}",
+        r.stderr
+    );
+    let shown = format!("{}{}", r.stdout, r.stderr);
+    assert!(
+        shown.contains(
+            "participants/SG-002/weights.csv: cannot read the file (it is a symbolic link"
+        ),
+        "{shown}"
+    );
+}
+
+/// Ceiling on the virtual memory of a run over hostile files. A clean run of a few
+/// participants stays well under it; before the budgets the same files needed 4–10 GB.
+const HOSTILE_CEILING_MIB: u64 = 1024;
+
+#[test]
+fn hostile_files_are_refused_within_a_memory_ceiling_and_the_others_are_reported() {
+    use std::fmt::Write;
+    let t = demo(6);
+    let p = |rel: &str| t.dir.join("participants").join(rel);
+    // One large anchor and 20,000 aliases to it.
+    let profile = std::fs::read_to_string(p("SG-001/profile.yaml")).unwrap();
+    let mut bomb = String::from("groups:\n  site: &a [");
+    for i in 0..25_000 {
+        write!(bomb, "v{i},").unwrap();
+    }
+    bomb.push_str("end]\n  team: [");
+    bomb.push_str(&["*a"; 20_000].join(", "));
+    bomb.push_str("]\n");
+    let profile: String = profile
+        .lines()
+        .filter(|l| !l.starts_with("groups:"))
+        .map(|l| format!("{l}\n"))
+        .collect::<String>()
+        + &bomb;
+    std::fs::write(p("SG-001/profile.yaml"), profile).unwrap();
+    // 100,000 levels of nesting.
+    set_height(&t, "SG-002", &format!(" {}", deep(100_000)));
+    // A million rows (about 19 MB).
+    let mut rows = String::from("date,weight,unit\n");
+    for i in 0..1_000_000u32 {
+        writeln!(
+            rows,
+            "2026-{:02}-{:02},{}.5,kg",
+            4 + i % 6,
+            1 + i % 28,
+            60 + i % 30
+        )
+        .unwrap();
+    }
+    std::fs::write(p("SG-003/weights.csv"), rows).unwrap();
+    // A header of 2 million columns.
+    let mut wide = String::from("date,activity,minutes");
+    for _ in 0..2_000_000 {
+        wide.push_str(",c");
+    }
+    wide.push_str("\n2026-04-02,walking,30\n");
+    std::fs::write(p("SG-004/activity.csv"), wide).unwrap();
+    let o = out(&t);
+    let r = run_bin(
+        &t,
+        &[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--out",
+            &o,
+            "--formats",
+            "html",
+        ],
+        &[],
+        Some(HOSTILE_CEILING_MIB),
+    );
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::PARTICIPANT_ERRORS,
+        "{}",
+        r.stderr
+    );
+    for expected in [
+        "participants/SG-001/profile.yaml:",
+        "aliases (`*name`) expand the file to more than 200000 values",
+        "participants/SG-002/profile.yaml:",
+        "lists and mappings are nested more than 32 levels deep",
+        "participants/SG-003/weights.csv:50002: the file has more than 50000 rows",
+        "participants/SG-004/activity.csv:1: the header has 2000003 columns, more than the limit of 256",
+        "2 participants reported, 4 with errors",
+    ] {
+        assert!(r.stderr.contains(expected), "{expected}: {}", r.stderr);
+    }
+    for id in ["SG-005", "SG-006"] {
+        assert!(
+            Path::new(&o)
+                .join(format!("participants/{id}.html"))
+                .exists()
+        );
+    }
+    // No output (reports, metrics, cache, log) grew with the hostile files.
+    for entry in walkdir::WalkDir::new(&o) {
+        let entry = entry.unwrap();
+        let len = entry.metadata().unwrap().len();
+        assert!(
+            len < 2 * 1024 * 1024,
+            "{}: {len} bytes",
+            entry.path().display()
+        );
+    }
+}
+
+#[test]
+fn control_characters_and_bad_overrides_are_shown_safely_by_check() {
+    let t = demo(2);
+    let p = |rel: &str| t.dir.join("participants").join(rel);
+    // ESC sequences (clear screen, set title), NUL, a C1 control and a bidi override in values.
+    let weights = std::fs::read_to_string(p("SG-001/weights.csv")).unwrap();
+    let weights = weights.replacen(
+        "\n2026-04-03,",
+        "\n2026-04-03,\u{1b}[2J\u{1b}]0;owned\u{7}7\u{0}2\u{9b}\u{202e}",
+        1,
+    );
+    assert!(weights.contains('\u{1b}'));
+    std::fs::write(p("SG-001/weights.csv"), weights).unwrap();
+    set_profile_line(
+        &t,
+        "SG-002",
+        "enrolled",
+        "enrolled: 2026-04-01\ntargets:\n  weight_change_percent: -846.9\n  weigh_ins_per_week: .nan",
+    );
+    let r = run_bin(&t, &["check", "{dir}", "--as-of", AS_OF], &[], None);
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::PARTICIPANT_ERRORS,
+        "{}",
+        r.stderr
+    );
+    let shown = format!("{}{}", r.stdout, r.stderr);
+    assert!(
+        !shown
+            .chars()
+            .any(|c| (c.is_control() && c != '\n') || c == '\u{202e}'),
+        "{shown:?}"
+    );
+    assert!(
+        shown.contains("found: `\\u{1b}[2J\\u{1b}]0;owned\\u{7}7\\u{0}2\\u{9b}\\u{202e}"),
+        "{shown}"
+    );
+    let line = |needle: &str| {
+        let profile = std::fs::read_to_string(p("SG-002/profile.yaml")).unwrap();
+        profile.lines().position(|l| l.contains(needle)).unwrap() + 1
+    };
+    assert!(
+        shown.contains(&format!(
+            "participants/SG-002/profile.yaml:{}:26: target out of range: -846.9",
+            line("-846.9")
+        )),
+        "{shown}"
+    );
+    assert!(
+        shown.contains(&format!(
+            "participants/SG-002/profile.yaml:{}:23: target out of range: NaN",
+            line(".nan")
+        )),
+        "{shown}"
+    );
+    assert!(
+        shown.contains("expected: a number from -50 to 50; found: -846.9"),
+        "{shown}"
     );
 }
 

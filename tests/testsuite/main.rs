@@ -8,3 +8,4 @@ mod hostile;
 mod operation;
 mod reports;
 mod sample_program;
+mod unattended;

@@ -46,8 +46,12 @@ pub enum UnitSystem {
 }
 
 /// Program-wide targets; a participant's profile may override any of them.
+///
+/// On the wire, targets this version does not know are ignored and targets a sender leaves out
+/// take their defaults, so a target added in a later minor version breaks no module. (Users'
+/// typos are caught earlier: `program.yaml` and `profile.yaml` refuse unknown keys.)
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(default)]
 pub struct Targets {
     /// Target weight change over the program, % of baseline weight (negative = loss).
     pub weight_change_percent: f64,
@@ -396,6 +400,20 @@ pub trait MetricModule: Send + Sync {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn targets_accept_fields_they_do_not_know_and_default_missing_ones() {
+        let t: Targets = serde_json::from_str(
+            r#"{"weight_change_percent": -7.5, "steps_per_day": 8000, "sessions_offered": 12}"#,
+        )
+        .unwrap();
+        assert_eq!(t.weight_change_percent, -7.5);
+        assert_eq!(t.sessions_offered, 12);
+        assert_eq!(
+            t.activity_minutes_per_week,
+            Targets::default().activity_minutes_per_week
+        );
+    }
 
     fn spec() -> ModuleSpec {
         ModuleSpec {

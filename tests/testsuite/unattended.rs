@@ -1,0 +1,288 @@
+//! Unattended runs never destroy anything: the output folder is owned (a foreign folder, the
+//! program folder and its participants are refused before anything is written), partial runs
+//! never replace a complete output, a run that cannot produce a complete output leaves the
+//! previous one intact, and `check` and `run` give the same exit code for the same inputs.
+//! Everything through the real binary, as cron would run it.
+
+use crate::harness::{Outcome, ProgramTest, fixture, tree_hashes};
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+const AS_OF: &str = "2026-12-01";
+const BIN: &str = env!("CARGO_BIN_EXE_cohortpress");
+
+/// A small program: two clean participants of the broken-program fixture.
+fn small() -> ProgramTest {
+    with_folders(&["clean-a", "clean-b"])
+}
+
+/// The broken-program fixture's program.yaml with only the named participant folders.
+fn with_folders(names: &[&str]) -> ProgramTest {
+    let t = ProgramTest::fixture("broken-program");
+    for entry in std::fs::read_dir(t.dir.join("participants")).unwrap() {
+        let entry = entry.unwrap();
+        let name = entry.file_name().to_string_lossy().into_owned();
+        if !names.contains(&name.as_str()) {
+            std::fs::remove_dir_all(entry.path()).unwrap();
+        }
+    }
+    t
+}
+
+fn beside(t: &ProgramTest, name: &str) -> PathBuf {
+    t.dir.parent().unwrap().join(name)
+}
+
+fn run_to(t: &ProgramTest, out: &Path, extra: &[&str]) -> Outcome {
+    let out = out.to_string_lossy().into_owned();
+    let mut args = vec![
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        &out,
+    ];
+    args.extend_from_slice(extra);
+    t.run(&args)
+}
+
+/// A folder that is not ours, with one file in it.
+fn foreign_folder(path: &Path) {
+    std::fs::create_dir_all(path).unwrap();
+    std::fs::write(path.join("thesis.txt"), "years of work\n").unwrap();
+}
+
+fn no_leftovers(parent: &Path, name: &str) {
+    for suffix in ["staging", "previous"] {
+        let p = parent.join(format!(".{name}.{suffix}"));
+        assert!(!p.exists(), "{} was left behind", p.display());
+    }
+}
+
+#[test]
+fn a_foreign_out_folder_survives_and_the_run_says_what_to_do() {
+    let t = small();
+    let mine = beside(&t, "documents");
+    foreign_folder(&mine);
+    let before = tree_hashes(&mine);
+    let o = run_to(&t, &mine, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(o.stderr.contains("not a cohortpress output") || o.stderr.contains("manifest"));
+    assert!(o.stderr.contains("name a new folder"), "{}", o.stderr);
+    assert_eq!(tree_hashes(&mine), before);
+    no_leftovers(mine.parent().unwrap(), "documents");
+    // A refused run leaves no trace beside the folder either.
+    assert!(!beside(&t, ".documents.lock").exists());
+    // merge is refused the same way.
+    let shard = beside(&t, "shard-1");
+    let o = run_to(&t, &shard, &["--shard", "1/1"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let m = t.run(&[
+        "merge",
+        "{dir}",
+        shard.to_str().unwrap(),
+        "--out",
+        mine.to_str().unwrap(),
+    ]);
+    assert_eq!(m.code, 2, "{m:?}");
+    assert_eq!(tree_hashes(&mine), before);
+}
+
+#[test]
+fn the_program_folder_its_parent_and_participants_are_never_outputs() {
+    let t = small();
+    let before = tree_hashes(&t.dir);
+    let parent = t.dir.parent().unwrap().to_path_buf();
+    let inside = t.dir.join("participants").join("clean-a").join("out");
+    for out in [t.dir.clone(), parent.clone(), inside, t.dir.join(".")] {
+        let o = run_to(&t, &out, &[]);
+        assert_eq!(o.code, 2, "--out {}: {o:?}", out.display());
+        assert!(o.stderr.contains("refusing"), "{}", o.stderr);
+        assert_eq!(tree_hashes(&t.dir), before, "--out {}", out.display());
+    }
+    // The same through program.yaml's report.out: exit 3 (the program file is wrong).
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace("report:\n", "report:\n  out: ../program\n");
+    std::fs::write(t.dir.join("program.yaml"), &yaml).unwrap();
+    let before = tree_hashes(&t.dir);
+    let o = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert_eq!(o.code, 3, "{o:?}");
+    assert_eq!(tree_hashes(&t.dir), before);
+    assert!(!parent.join(".program.previous").exists());
+}
+
+#[test]
+fn only_never_replaces_a_complete_output_and_a_typo_is_an_error() {
+    let t = small();
+    let out = beside(&t, "reports");
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let complete = tree_hashes(&out);
+    assert!(
+        complete
+            .iter()
+            .any(|(p, _)| p == "participants/clean-b.html")
+    );
+
+    // A typo'd id: exit 2, nothing written.
+    let o = run_to(&t, &out, &["--only", "CLEAN-A"]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(o.stderr.contains("CLEAN-A"), "{}", o.stderr);
+    assert_eq!(tree_hashes(&out), complete);
+
+    // A real id into the complete output: refused, the others' reports stay.
+    let o = run_to(&t, &out, &["--only", "clean-a"]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(o.stderr.contains("folder of its own"), "{}", o.stderr);
+    assert_eq!(tree_hashes(&out), complete);
+
+    // Into a folder of its own: only that participant, and it may be re-run there.
+    let part = beside(&t, "only-a");
+    for _ in 0..2 {
+        let o = run_to(&t, &part, &["--only", "clean-a"]);
+        assert_eq!(o.code, 0, "{o:?}");
+    }
+    assert!(part.join("participants/clean-a.html").is_file());
+    assert!(!part.join("participants/clean-b.html").exists());
+    let manifest: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(part.join("manifest.json")).unwrap()).unwrap();
+    assert_eq!(manifest["scope"], "only");
+    // A complete run may replace a partial output.
+    let o = run_to(&t, &part, &[]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(part.join("participants/clean-b.html").is_file());
+}
+
+#[test]
+fn a_missing_or_empty_participants_folder_keeps_last_months_output() {
+    let t = small();
+    let out = beside(&t, "reports");
+    assert_eq!(run_to(&t, &out, &[]).code, 0);
+    let before = tree_hashes(&out);
+    let parts = t.dir.join("participants");
+    let moved = beside(&t, "unmounted");
+    std::fs::rename(&parts, &moved).unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 3, "{check:?}");
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 3, "{o:?}");
+    assert_eq!(tree_hashes(&out), before);
+    // An empty mount point looks the same to the user, and is treated the same.
+    std::fs::create_dir(&parts).unwrap();
+    assert_eq!(t.run(&["check", "{dir}", "--as-of", AS_OF]).code, 3);
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 3, "{o:?}");
+    assert!(o.stderr.contains("mounted"), "{}", o.stderr);
+    assert_eq!(tree_hashes(&out), before);
+    no_leftovers(out.parent().unwrap(), "reports");
+}
+
+#[cfg(unix)]
+#[test]
+fn an_output_reached_through_a_link_stays_a_link_and_shares_the_lock() {
+    let t = small();
+    let real = beside(&t, "real-reports");
+    let link = beside(&t, "reports-link");
+    std::fs::create_dir(&real).unwrap();
+    std::os::unix::fs::symlink(&real, &link).unwrap();
+    for _ in 0..2 {
+        let o = run_to(&t, &link, &[]);
+        assert_eq!(o.code, 0, "{o:?}");
+    }
+    assert!(
+        std::fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink()
+    );
+    assert!(real.join("manifest.json").is_file());
+    assert!(t.dir.parent().unwrap().join(".real-reports.lock").exists());
+    assert!(!t.dir.parent().unwrap().join(".reports-link.lock").exists());
+}
+
+#[test]
+fn a_failed_run_leaves_no_staging_and_the_previous_output() {
+    let t = small();
+    let out = beside(&t, "reports");
+    assert_eq!(run_to(&t, &out, &[]).code, 0);
+    let before = tree_hashes(&out);
+    // A template override that fails in strict mode fails the run after staging began.
+    let tpl = t.dir.join("my-templates");
+    std::fs::create_dir(&tpl).unwrap();
+    std::fs::write(
+        tpl.join("participant.html.hbs"),
+        "<p>{{no_such_value_anywhere}}</p>\n",
+    )
+    .unwrap();
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace("report:\n", "report:\n  templates: my-templates\n");
+    std::fs::write(t.dir.join("program.yaml"), yaml).unwrap();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 6, "{o:?}");
+    assert_eq!(tree_hashes(&out), before);
+    no_leftovers(out.parent().unwrap(), "reports");
+}
+
+#[test]
+fn a_run_killed_between_the_renames_is_recovered() {
+    let t = small();
+    let out = beside(&t, "reports");
+    assert_eq!(run_to(&t, &out, &[]).code, 0);
+    let parent = out.parent().unwrap().to_path_buf();
+    // Killed after the first rename: only `.reports.previous` exists.
+    std::fs::rename(&out, parent.join(".reports.previous")).unwrap();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 0, "{o:?}");
+    // Killed after the second rename, before the removal: both exist.
+    let copy = parent.join(".reports.previous");
+    crate::harness::copy_tree(&out, &copy);
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 0, "{o:?}");
+    no_leftovers(&parent, "reports");
+    // Something foreign in the swap's way is never deleted.
+    foreign_folder(&copy);
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(copy.join("thesis.txt").is_file());
+}
+
+#[test]
+fn check_and_run_give_the_same_exit_code_for_every_broken_fixture() {
+    let names: Vec<String> = std::fs::read_dir(fixture("broken-program").join("participants"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    assert!(
+        names.len() >= 10,
+        "the fixture has one folder per defect kind"
+    );
+    for name in &names {
+        let t = with_folders(&["clean-a", name]);
+        let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+        let out = beside(&t, "reports");
+        let run = run_to(&t, &out, &[]);
+        assert_eq!(
+            check.code, run.code,
+            "{name}: check {} vs run {}\n{}\n{}",
+            check.code, run.code, check.stdout, run.stderr
+        );
+    }
+}
+
+#[test]
+fn a_panic_maps_to_exit_code_70_with_one_line() {
+    let t = small();
+    let out = Command::new(BIN)
+        .args(["check", t.dir.to_str().unwrap(), "--as-of", AS_OF])
+        .env_clear()
+        .env("COHORTPRESS_DEBUG_PANIC", "1")
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(70), "{out:?}");
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(stderr.starts_with("internal error"), "{stderr}");
+    assert_eq!(stderr.trim_end().lines().count(), 1, "{stderr}");
+}
