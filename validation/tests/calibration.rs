@@ -28,7 +28,7 @@ fn check(seed: u64) {
         ("regain sensitivity", 0.80, true, s.regain_sensitivity),
         ("regain specificity", 0.95, true, s.regain_specificity),
         ("plateau onset within ±14 d", 0.40, true, s.plateau_onset_14),
-        ("plateau cause correct", 0.65, true, s.cause_correct),
+        ("plateau cause correct", 0.72, true, s.cause_correct),
         (
             "plateaus reported without one",
             0.20,

@@ -138,6 +138,8 @@ struct TrendPeriod {
     start: NaiveDate,
     end: NaiveDate,
     slope_wk: Option<f64>,
+    lower_wk: Option<f64>,
+    upper_wk: Option<f64>,
     weight_start: Option<f64>,
 }
 
@@ -206,6 +208,8 @@ fn parse_trend(out: &ModuleOutput, to: NaiveDate) -> Trend {
                 start,
                 end: end.min(to),
                 slope_wk: num(row, "slope_kg_per_week"),
+                lower_wk: num(row, "slope_lower_kg_per_week"),
+                upper_wk: num(row, "slope_upper_kg_per_week"),
                 weight_start: num(row, "weight_start_kg"),
             });
         }
@@ -1295,7 +1299,8 @@ fn plateau_columns() -> Table {
 ///   glycogen/water drop); when the plateau starts earlier than day 35, over enrolment to the
 ///   day before the plateau with the fast drop taken out
 ///   ([`Person::implied_intake_from_start`]).
-/// - **During**: the intake implied over the plateau's first `window_days` days.
+/// - **During**: the intake implied over the whole plateau (its exact slope interval from the
+///   trend's `periods` table; the first `window_days` days when the period is shorter than 28).
 /// - **Change** = during − early = ε·(BW_d − BW_e) + ρ·(s_d − s_e): the baseline requirement
 ///   cancels, so its 95 % interval carries only the two slopes' uncertainty (their bands, which
 ///   include correlated scatter) and the model's ρ and ε.
@@ -1313,8 +1318,21 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
         _ => 0.0,
     };
     for per in p.trend.periods.iter().filter(|x| x.kind == "plateau") {
-        let during_to = day_after(per.start, s.window_days - 1).min(per.end);
-        let during_slope = window_slope(&p.trend, per.start, during_to);
+        // The whole plateau, with the trend's exact slope interval for it when the period
+        // gives one (a longer window measures the intake during the plateau more precisely).
+        let during_to = per.end;
+        let during_slope = match (per.slope_wk, per.lower_wk, per.upper_wk) {
+            (Some(m), Some(l), Some(u)) if days_incl(per.start, per.end) >= 28 => Some(Band {
+                value: m / 7.0,
+                lower: Some(l / 7.0),
+                upper: Some(u / 7.0),
+            }),
+            _ => window_slope(
+                &p.trend,
+                per.start,
+                day_after(per.start, s.window_days - 1).min(per.end),
+            ),
+        };
         let observed_wk = per.slope_wk.or(during_slope.map(|x| x.value * 7.0));
         let bw_start = per.weight_start.or_else(|| p.weight_on(per.start));
         let bw_during = mean_band(&p.trend.level, per.start, during_to)
