@@ -54,8 +54,8 @@ impl<W: Write> Writer<W> {
     }
 
     /// Flushes and returns the underlying writer.
-    pub fn into_inner(self) -> Result<W, csv::IntoInnerError<csv::Writer<W>>> {
-        self.0.into_inner()
+    pub fn into_inner(self) -> std::io::Result<W> {
+        self.0.into_inner().map_err(|e| e.into_error())
     }
 }
 

@@ -83,24 +83,132 @@ pub fn too_large_message(size: u64, limit: u64) -> String {
 /// the check and the read. A link, a FIFO, a device, a socket or a folder gives an error whose
 /// message says what was found; nothing is read from it.
 pub fn open_input(path: &Path) -> std::io::Result<std::fs::File> {
-    let mut opts = std::fs::OpenOptions::new();
-    opts.read(true);
     #[cfg(unix)]
     {
-        use std::os::unix::fs::OpenOptionsExt;
-        opts.custom_flags(libc::O_NOFOLLOW | libc::O_NONBLOCK | libc::O_NOCTTY);
+        let fd = rustix::fs::open(path, input_flags(), rustix::fs::Mode::empty());
+        checked_file(fd.map_err(|e| link_or(e, || is_link(path))))
     }
-    let f = match opts.open(path) {
-        Ok(f) => f,
-        Err(e) => {
-            // O_NOFOLLOW on a link fails with ELOOP; say so in words (and keep the kind).
-            let is_link = std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink());
-            if is_link {
-                return Err(std::io::Error::new(e.kind(), LINK_MESSAGE));
-            }
-            return Err(e);
+    #[cfg(not(unix))]
+    {
+        if is_link(path) {
+            return Err(std::io::Error::other(LINK_MESSAGE));
         }
+        checked_file(std::fs::File::open(path))
+    }
+}
+
+/// A participant's folder, opened once without following a link: its files are opened relative
+/// to it ([`read_input_in`]), so a folder swapped for a link while the run goes on is not
+/// followed either.
+#[derive(Debug)]
+pub struct InputDir {
+    #[cfg(unix)]
+    fd: std::os::fd::OwnedFd,
+    #[cfg_attr(unix, allow(dead_code))]
+    path: std::path::PathBuf,
+}
+
+/// Opens a folder of inputs without following a link (`O_DIRECTORY | O_NOFOLLOW`).
+pub fn open_dir(path: &Path) -> std::io::Result<InputDir> {
+    #[cfg(unix)]
+    {
+        use rustix::fs::OFlags;
+        let flags = OFlags::RDONLY | OFlags::DIRECTORY | OFlags::NOFOLLOW | OFlags::CLOEXEC;
+        let fd = rustix::fs::open(path, flags, rustix::fs::Mode::empty())
+            .map_err(|e| link_or(e, || is_link(path)))?;
+        Ok(InputDir {
+            fd,
+            path: path.to_path_buf(),
+        })
+    }
+    #[cfg(not(unix))]
+    {
+        if is_link(path) || !path.is_dir() {
+            return Err(std::io::Error::other(LINK_MESSAGE));
+        }
+        Ok(InputDir {
+            path: path.to_path_buf(),
+        })
+    }
+}
+
+/// Reads the file `name` of `dir` like [`read_input`] (no links, regular files only, size
+/// limit by the name's extension), opened relative to the folder's handle.
+pub fn read_input_in(dir: &InputDir, name: &str) -> std::io::Result<Vec<u8>> {
+    let limit = limit_for(Path::new(name));
+    #[cfg(unix)]
+    let f = {
+        let fd = rustix::fs::openat(&dir.fd, name, input_flags(), rustix::fs::Mode::empty());
+        checked_file(fd.map_err(|e| {
+            link_or(e, || {
+                rustix::fs::statat(&dir.fd, name, rustix::fs::AtFlags::SYMLINK_NOFOLLOW).is_ok_and(
+                    |st| {
+                        rustix::fs::FileType::from_raw_mode(st.st_mode)
+                            == rustix::fs::FileType::Symlink
+                    },
+                )
+            })
+        }))?
     };
+    #[cfg(not(unix))]
+    let f = open_input(&dir.path.join(name))?;
+    read_open(f, limit)
+}
+
+/// The names in `dir`, read through its handle (so from the folder that was opened, whatever
+/// its path leads to now), and whether every entry could be read.
+pub fn list_dir(dir: &InputDir) -> std::io::Result<(Vec<String>, bool)> {
+    let mut names = Vec::new();
+    let mut complete = true;
+    #[cfg(unix)]
+    for entry in rustix::fs::Dir::read_from(&dir.fd)? {
+        match entry {
+            Ok(e) => {
+                let name = e.file_name().to_string_lossy();
+                if name != "." && name != ".." {
+                    names.push(name.into_owned());
+                }
+            }
+            Err(_) => complete = false,
+        }
+    }
+    #[cfg(not(unix))]
+    for entry in std::fs::read_dir(&dir.path)? {
+        match entry {
+            Ok(e) => names.push(e.file_name().to_string_lossy().into_owned()),
+            Err(_) => complete = false,
+        }
+    }
+    Ok((names, complete))
+}
+
+#[cfg(unix)]
+fn input_flags() -> rustix::fs::OFlags {
+    use rustix::fs::OFlags;
+    OFlags::RDONLY | OFlags::NOFOLLOW | OFlags::NONBLOCK | OFlags::NOCTTY | OFlags::CLOEXEC
+}
+
+/// An open error in words when the path is a link (`O_NOFOLLOW` fails with `ELOOP`; the kind
+/// of error is kept).
+#[cfg(unix)]
+fn link_or(e: rustix::io::Errno, is_link: impl FnOnce() -> bool) -> std::io::Error {
+    let e = std::io::Error::from(e);
+    if e.kind() != std::io::ErrorKind::NotFound && is_link() {
+        std::io::Error::new(e.kind(), LINK_MESSAGE)
+    } else {
+        e
+    }
+}
+
+fn is_link(path: &Path) -> bool {
+    std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink())
+}
+
+/// The opened handle as a `File` when it is a regular file.
+fn checked_file<F: Into<std::fs::File>>(
+    opened: std::io::Result<F>,
+) -> std::io::Result<std::fs::File> {
+    let f: std::fs::File = opened?.into();
     let meta = f.metadata()?;
     if !meta.is_file() {
         return Err(std::io::Error::new(
@@ -159,7 +267,12 @@ pub fn read_input(path: &Path) -> std::io::Result<Vec<u8>> {
 
 /// [`read_input`] with an explicit limit.
 pub fn read_limited(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
-    let f = open_input(path)?;
+    read_open(open_input(path)?, limit)
+}
+
+/// Reads an opened input, refusing it when over `limit` (checked on the handle first, and the
+/// read capped, so a file that grows while it is read is still refused).
+fn read_open(f: std::fs::File, limit: u64) -> std::io::Result<Vec<u8>> {
     let size = f.metadata()?.len();
     if size > limit {
         return Err(std::io::Error::other(too_large_message(size, limit)));

@@ -7,6 +7,8 @@ use cohortpress::exit_code;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
+    // Processes that external modules leave behind are adopted and stopped, up to the end.
+    let _modules = cohortpress::modules::external::Containment::install();
     let cli = Cli::parse();
     // A panic anywhere (a bug) ends the command with the documented code 70 and one line on
     // standard error; a run's staging folder is removed as the stack unwinds, so the previous

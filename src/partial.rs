@@ -86,6 +86,10 @@ pub struct ParticipantRecord {
     pub summary: Option<SummaryRecord>,
     /// Tidy metrics (`None` when unusable).
     pub tidy: Option<TidyRecord>,
+    /// This participant's part of the clinician follow-up list (only when the program turns
+    /// the list on and they have a clinical flag).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub followup: Option<crate::report::followup::FollowupRecord>,
 }
 
 impl ParticipantRecord {

@@ -771,6 +771,19 @@ pub fn finish(
     }
     timing.group_s = phase.elapsed().as_secs_f64();
 
+    // ---- Clinician follow-up list (only when `followup.recipient` is set) ----
+    // Identified: its own folder, owner-only whatever `--group-readable` says, and built from
+    // the records alone, never from (or into) the group step.
+    if plan.program.def.followup.is_some() {
+        let list: Vec<_> = records.iter().filter_map(|r| r.followup.clone()).collect();
+        let files = report::followup::render(plan, templates, &list, &plan.formats)
+            .map_err(|e| RunError::Render(e.to_string()))?;
+        for (name, bytes) in files {
+            staging.write_private(&format!("{}/{name}", report::followup::FOLDER), &bytes)?;
+        }
+    }
+    // ---- end of the follow-up hook ----
+
     // Tidy metrics.
     let phase = Instant::now();
     let ids: Vec<String> = records.iter().map(|r| r.id.clone()).collect();
@@ -869,6 +882,7 @@ fn process_participant(
         reports: Vec::new(),
         summary: None,
         tidy: None,
+        followup: None,
     };
     if let Some(data) = loaded.data {
         let results: ModuleResults =
@@ -895,6 +909,8 @@ fn process_participant(
         rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(
             plan, &data, &results,
         )));
+        // Clinician follow-up list: this participant's flags, when the program turns it on.
+        rec.followup = report::followup::for_participant(plan, &data, &results);
     }
     staging.write(&partial::cache_path(&rec.id), &rec.to_bytes())?;
     Ok(rec)

@@ -161,16 +161,26 @@ impl Launch {
     /// arrived: a process it left behind holding the pipe open cannot turn an answer into a
     /// timeout.
     pub fn exchange(&self, input: Vec<u8>, answer_lines: usize) -> Result<Vec<u8>, CallError> {
+        // The working folder is created, the module started and both registered under the lock
+        // of the live groups: an interrupt then finds every folder it has to remove, and a sweep
+        // for strays (see `Containment`) never takes a module that has just started for one.
+        #[cfg(unix)]
+        let mut live = live_groups();
         // Declared before the process so that it is removed after the process group is killed.
-        let workdir = tempfile::Builder::new()
-            .prefix("cohortpress-module-")
-            .tempdir()
-            .map_err(|e| {
-                CallError::Failed(format!(
-                    "cannot create an empty working folder for it in {}: {e}",
-                    std::env::temp_dir().display()
-                ))
-            })?;
+        // Owner only: a module may write a participant's data there.
+        let mut folder = tempfile::Builder::new();
+        folder.prefix("cohortpress-module-");
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            folder.permissions(std::fs::Permissions::from_mode(0o700));
+        }
+        let workdir = folder.tempdir().map_err(|e| {
+            CallError::Failed(format!(
+                "cannot create an empty working folder for it in {}: {e}",
+                std::env::temp_dir().display()
+            ))
+        })?;
         let mut cmd = Command::new(&self.program);
         cmd.args(&self.args).current_dir(workdir.path()).env_clear();
         for key in PASSED_ENVIRONMENT {
@@ -211,7 +221,13 @@ impl Launch {
             }
             Err(e) => return Err(CallError::Failed(format!("cannot start `{shown}`: {e}"))),
         };
-        let mut running = Running::new(child, workdir.path());
+        #[cfg(unix)]
+        {
+            stop_modules_on_interrupt();
+            live.insert(child.id(), workdir.path().to_path_buf());
+            drop(live);
+        }
+        let mut running = Running::new(child);
         let (tx, rx) = mpsc::channel();
 
         // Standard input is written from its own thread: a module that never reads must not be
@@ -386,8 +402,8 @@ struct Running {
 }
 
 /// Process groups of the modules running right now, with their working folders, so that an
-/// interrupted run can stop them and clean up. A group leaves the map before its leader is
-/// reaped, so an id in it is never a reused one.
+/// interrupted run can stop them and clean up. A module is added when it starts (under the lock,
+/// so that a sweep never takes it for a stray) and removed just after it is reaped.
 #[cfg(unix)]
 static LIVE_GROUPS: std::sync::Mutex<std::collections::BTreeMap<u32, PathBuf>> =
     std::sync::Mutex::new(std::collections::BTreeMap::new());
@@ -428,6 +444,8 @@ fn stop_modules_on_interrupt() {
                     }
                     let _ = std::fs::remove_dir_all(dir);
                 }
+                #[cfg(target_os = "linux")]
+                stop_adopted();
                 // Keep the lock: no new group is registered while the process ends.
                 let _ = signal_hook::low_level::emulate_default_handler(signal);
                 std::process::exit(128 + signal);
@@ -436,15 +454,160 @@ fn stop_modules_on_interrupt() {
     });
 }
 
-impl Running {
-    fn new(child: Child, workdir: &Path) -> Self {
-        #[cfg(unix)]
+/// Whether this process adopts orphaned descendants (see [`Containment`]).
+#[cfg(target_os = "linux")]
+static SUBREAPER: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+
+/// Extends the containment of external modules to processes that leave their module's process
+/// group (`setsid`, daemons): the program becomes a *child subreaper* (Linux), so such a process
+/// is adopted by it instead of by init when its parent ends, and every adopted process is killed
+/// (with its own group) and reaped after each module call and when the guard is dropped.
+///
+/// For the `cohortpress` binary only, held for its whole life: a process that starts other
+/// programs itself (a test harness running the binary) must not use it, since a sweep kills
+/// every child that is not a running module.
+#[must_use = "the guard sweeps up strays when it is dropped"]
+pub struct Containment(());
+
+impl Containment {
+    /// Becomes a child subreaper where the system supports it (Linux); elsewhere modules are
+    /// contained by their process groups alone.
+    pub fn install() -> Containment {
+        #[cfg(target_os = "linux")]
         {
-            stop_modules_on_interrupt();
-            live_groups().insert(child.id(), workdir.to_path_buf());
+            use std::sync::atomic::Ordering;
+            let me = rustix::process::getpid();
+            match rustix::process::set_child_subreaper(Some(me)) {
+                Ok(()) => SUBREAPER.store(true, Ordering::SeqCst),
+                Err(e) => tracing::debug!("cannot become a child subreaper: {e}"),
+            }
         }
-        #[cfg(not(unix))]
-        let _ = workdir;
+        Containment(())
+    }
+}
+
+impl Drop for Containment {
+    fn drop(&mut self) {
+        #[cfg(unix)]
+        sweep_strays(&live_groups());
+    }
+}
+
+/// Kills and reaps every child of this process that is not a running module: processes that
+/// left a module's group and were adopted after their parent ended. Does nothing unless
+/// [`Containment::install`] made this process a subreaper. `live` is the locked set of running
+/// modules, so no module starts or ends meanwhile.
+#[cfg(unix)]
+fn sweep_strays(live: &std::collections::BTreeMap<u32, PathBuf>) {
+    #[cfg(target_os = "linux")]
+    {
+        use rustix::process::{
+            Pid, Signal, WaitOptions, kill_process, kill_process_group, waitpid,
+        };
+        use std::sync::atomic::Ordering;
+        if !SUBREAPER.load(Ordering::SeqCst) {
+            return;
+        }
+        let me = std::process::id();
+        // Killing an adopted process can orphan its own children, who are adopted in turn:
+        // repeat until a pass finds none (bounded, in case something keeps forking).
+        for _ in 0..16 {
+            let strays: Vec<(u32, u32)> = children_of(me)
+                .into_iter()
+                .filter(|(pid, _)| !live.contains_key(pid))
+                .collect();
+            if strays.is_empty() {
+                return;
+            }
+            for &(pid, pgid) in &strays {
+                let Some(p) = Pid::from_raw(pid as i32) else {
+                    continue;
+                };
+                tracing::debug!("stopping process {pid}, left behind by an external module");
+                if pgid == pid {
+                    let _ = kill_process_group(p, Signal::KILL);
+                }
+                let _ = kill_process(p, Signal::KILL);
+                let _ = waitpid(Some(p), WaitOptions::empty());
+            }
+        }
+    }
+    #[cfg(not(target_os = "linux"))]
+    let _ = live;
+}
+
+/// When the process is about to end on a signal: kills every process it has adopted (see
+/// [`Containment`]) with its group. The modules were just killed, and processes they detached
+/// are adopted a moment after, so this looks a few times.
+#[cfg(target_os = "linux")]
+fn stop_adopted() {
+    use rustix::process::{Pid, Signal, kill_process, kill_process_group};
+    use std::sync::atomic::Ordering;
+    if !SUBREAPER.load(Ordering::SeqCst) {
+        return;
+    }
+    let me = std::process::id();
+    for _ in 0..20 {
+        for (pid, pgid) in children_of(me) {
+            if let Some(p) = Pid::from_raw(pid as i32) {
+                if pgid == pid {
+                    let _ = kill_process_group(p, Signal::KILL);
+                }
+                let _ = kill_process(p, Signal::KILL);
+            }
+        }
+        std::thread::sleep(Duration::from_millis(10));
+    }
+}
+
+/// The children of this process (`me`), with their process group ids, from `/proc`: the
+/// `children` lists of its threads where the kernel provides them (cheap), else a scan of every
+/// process.
+#[cfg(target_os = "linux")]
+fn children_of(me: u32) -> Vec<(u32, u32)> {
+    let stat_of = |pid: u32| -> Option<(u32, u32)> {
+        let stat = std::fs::read_to_string(format!("/proc/{pid}/stat")).ok()?;
+        // After the command name in parentheses: state, ppid, pgrp.
+        let mut rest = stat.rsplit_once(')')?.1.split_whitespace();
+        let ppid: u32 = rest.nth(1)?.parse().ok()?;
+        let pgid: u32 = rest.next()?.parse().ok()?;
+        Some((ppid, pgid))
+    };
+    let children_files = Path::new(&format!("/proc/{me}/task/{me}/children")).exists();
+    let candidates: Vec<u32> = if children_files {
+        std::fs::read_dir(format!("/proc/{me}/task"))
+            .map(|tasks| {
+                tasks
+                    .filter_map(|t| std::fs::read_to_string(t.ok()?.path().join("children")).ok())
+                    .flat_map(|text| {
+                        text.split_whitespace()
+                            .filter_map(|p| p.parse::<u32>().ok())
+                            .collect::<Vec<_>>()
+                    })
+                    .collect()
+            })
+            .unwrap_or_default()
+    } else {
+        // A kernel without the `children` files: every process is looked at.
+        std::fs::read_dir("/proc")
+            .map(|dir| {
+                dir.filter_map(|e| e.ok()?.file_name().to_str()?.parse().ok())
+                    .collect()
+            })
+            .unwrap_or_default()
+    };
+    candidates
+        .into_iter()
+        .filter_map(|pid| {
+            let (ppid, pgid) = stat_of(pid)?;
+            (ppid == me).then_some((pid, pgid))
+        })
+        .collect()
+}
+
+impl Running {
+    /// Takes over a module that is registered in the live groups (on Unix).
+    fn new(child: Child) -> Self {
         Running {
             child,
             status: None,
@@ -457,16 +620,12 @@ impl Running {
         use rustix::process::{Pid, WaitId, WaitIdOptions, waitid};
         let pid = Pid::from_child(&self.child);
         std::thread::spawn(move || {
-            loop {
-                match waitid(
-                    WaitId::Pid(pid),
-                    WaitIdOptions::EXITED | WaitIdOptions::NOWAIT,
-                ) {
-                    Err(rustix::io::Errno::INTR) => continue,
-                    // Exited, or already reaped because the call ended another way.
-                    _ => break,
-                }
-            }
+            // Exited, or already reaped because the call ended another way; retried only
+            // when interrupted.
+            while let Err(rustix::io::Errno::INTR) = waitid(
+                WaitId::Pid(pid),
+                WaitIdOptions::EXITED | WaitIdOptions::NOWAIT,
+            ) {}
             let _ = tx.send(Event::Exited);
         });
     }
@@ -508,10 +667,23 @@ impl Running {
         }
         self.kill_group();
         #[cfg(unix)]
-        live_groups().remove(&self.child.id());
-        let s = self.child.wait()?;
-        self.status = Some(s);
-        Ok(s)
+        {
+            // Reaped first, unregistered after: a sweep for strays never sees the module
+            // unregistered but not yet reaped (it would take it for a stray), and no lock is held
+            // while waiting.
+            let s = self.child.wait()?;
+            let mut live = live_groups();
+            live.remove(&self.child.id());
+            self.status = Some(s);
+            sweep_strays(&live);
+            Ok(s)
+        }
+        #[cfg(not(unix))]
+        {
+            let s = self.child.wait()?;
+            self.status = Some(s);
+            Ok(s)
+        }
     }
 }
 
@@ -888,6 +1060,24 @@ mod tests {
         assert_eq!(l.program, PathBuf::from("/srv/program/plugins/x.py"));
         assert_eq!(l.args, vec!["-v".to_string()]);
         assert_eq!(l.dir, root);
+        let tmp = tempfile::tempdir().unwrap();
+        std::fs::create_dir(tmp.path().join("plugins")).unwrap();
+        std::fs::write(tmp.path().join("plugins/x.py"), "").unwrap();
+        let command = [
+            "python3",
+            "plugins/x.py",
+            "--opt=plugins/x.py",
+            "a/b",
+            "plain",
+        ];
+        let command: Vec<String> = command.iter().map(|s| s.to_string()).collect();
+        let l = Launch::new("x", &command, tmp.path(), t).unwrap();
+        let x = tmp
+            .path()
+            .join("plugins/x.py")
+            .to_string_lossy()
+            .into_owned();
+        assert_eq!(l.args, [&x, "--opt=plugins/x.py", "a/b", "plain"]);
         let l = Launch::new("x", &["python3".into()], root, t).unwrap();
         assert_eq!(l.program, PathBuf::from("python3"));
         assert!(
@@ -905,6 +1095,21 @@ mod tests {
         assert!(e.contains("found: `not json`"), "{e}");
         let e = parse_messages(b"{\"type\":\"shout\"}\n").unwrap_err();
         assert!(e.contains("unknown variant `shout`"), "{e}");
+    }
+
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn children_are_listed_with_their_process_groups() {
+        use std::os::unix::process::CommandExt;
+        let mut child = Command::new("sleep")
+            .arg("5")
+            .process_group(0)
+            .spawn()
+            .unwrap();
+        let found = children_of(std::process::id());
+        child.kill().unwrap();
+        child.wait().unwrap();
+        assert!(found.contains(&(child.id(), child.id())), "{found:?}");
     }
 
     #[test]

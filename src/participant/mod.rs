@@ -189,26 +189,25 @@ pub fn csv_options(program: &Program) -> CsvOptions {
 /// Reads one file of the folder; `None` when it does not exist. Unreadable or non-UTF-8 files
 /// give an error diagnostic.
 ///
-/// `listing` is the folder's entries with their types, when the folder could be listed: it
-/// answers "is there such a file" without a `stat` call per missing file. Whatever is there is
+/// `listing` is the names in the folder (read through its handle), when it could be listed: it
+/// answers "is there such a file" without an `open` call per missing file. Whatever is there is
 /// opened without following links and refused unless it is a regular file.
 fn read_input(
-    dir: &ParticipantDir,
+    dir: &crate::limits::InputDir,
     name: &str,
-    listing: Option<&[(String, std::fs::FileType)]>,
+    listing: Option<&[String]>,
     ctx: &FileCtx,
     files: &mut Vec<InputFile>,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Result<String, ()>> {
-    let path = dir.path.join(name);
     if let Some(l) = listing
-        && !l.iter().any(|(n, _)| n == name)
+        && !l.iter().any(|n| n == name)
     {
         return None;
     }
     // Opened without following links, regular files only (crate::limits::open_input), and
     // refused before reading when over the size limit.
-    let bytes = match crate::limits::read_input(&path) {
+    let bytes = match crate::limits::read_input_in(dir, name) {
         Ok(b) => b,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => return None,
         Err(e) => {
@@ -255,28 +254,35 @@ pub fn load_participant(
     let mut files = Vec::new();
     let opts = csv_options(program);
 
+    // The folder is opened once without following a link, and its files relative to that
+    // handle: a folder replaced by a link since it was listed is not followed either.
+    let handle = match crate::limits::open_dir(&dir.path) {
+        Ok(h) => h,
+        Err(e) => {
+            diags.push(
+                Diagnostic::error(
+                    format!("{PARTICIPANTS_DIR}/{id}"),
+                    format!("the participant folder cannot be opened ({e}); this participant is not reported"),
+                )
+                .participant(id)
+                .expected("a real folder holding the participant's files"),
+            );
+            return LoadedParticipant {
+                id: dir.id.clone(),
+                data: None,
+                diagnostics: diags,
+                files,
+            };
+        }
+    };
+
     // The folder's entries: files the tool does not read but that look like inputs are most
     // likely a misspelt name; the listing also tells `read_input` which input files exist. It
-    // is only trusted when every entry could be read with its type.
-    let mut listing: Option<Vec<(String, std::fs::FileType)>> = None;
-    if let Ok(entries) = std::fs::read_dir(&dir.path) {
-        let mut complete = true;
-        let mut typed = Vec::new();
-        let mut names: Vec<String> = Vec::new();
-        for e in entries {
-            let Ok(e) = e else {
-                complete = false;
-                continue;
-            };
-            let name = e.file_name().to_string_lossy().into_owned();
-            match e.file_type() {
-                Ok(t) => typed.push((name.clone(), t)),
-                Err(_) => complete = false,
-            }
-            names.push(name);
-        }
+    // is read through the folder's handle and only trusted when every entry could be read.
+    let mut listing: Option<Vec<String>> = None;
+    if let Ok((mut names, complete)) = crate::limits::list_dir(&handle) {
         if complete {
-            listing = Some(typed);
+            listing = Some(names.clone());
         }
         names.sort();
         let mut stray = 0usize;
@@ -319,7 +325,7 @@ pub fn load_participant(
 
     let pctx = FileCtx::new(id, rel(PROFILE_FILE));
     let profile = match read_input(
-        dir,
+        &handle,
         PROFILE_FILE,
         listing.as_deref(),
         &pctx,
@@ -353,7 +359,7 @@ pub fn load_participant(
             let ctx = FileCtx::new(id, rel($spec.name));
             let first_diag = diags.len();
             let rows = match read_input(
-                dir,
+                &handle,
                 $spec.name,
                 listing.as_deref(),
                 &ctx,

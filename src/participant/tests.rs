@@ -271,3 +271,34 @@ fn links_fifos_and_directories_are_refused_naming_the_file() {
     assert_eq!(data.weights.len(), 1);
     assert_eq!(data.weights[0].weight.kg(), 80.0);
 }
+
+#[cfg(unix)]
+#[test]
+fn a_folder_swapped_for_a_link_after_listing_is_not_followed() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights: &[u8] = b"date,weight,unit\n2026-04-02,80,kg\n";
+    let other_profile = PROFILE.replace("P1", "P2");
+    let other = participant(
+        tmp.path(),
+        "P2",
+        &[
+            ("profile.yaml", other_profile.as_bytes()),
+            ("weights.csv", weights),
+        ],
+    );
+    let dir = participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    // Listed as a real folder, then replaced by a link to P2's folder before it is read.
+    let (dirs, _) = discover(&p);
+    assert_eq!(dirs.len(), 2);
+    fs::remove_dir_all(&dir.path).unwrap();
+    std::os::unix::fs::symlink(&other.path, &dir.path).unwrap();
+    let loaded = load_participant(&p, &dirs[0], as_of());
+    assert_eq!(loaded.id, "P1");
+    assert!(loaded.data.is_none());
+    assert!(loaded.files.is_empty(), "{:?}", loaded.files);
+    assert_eq!(loaded.diagnostics.len(), 1);
+    let d = &loaded.diagnostics[0];
+    assert_eq!(d.file, "participants/P1");
+    assert!(d.message.contains("symbolic link"), "{d}");
+}

@@ -165,6 +165,72 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
             );
         }
     }
+    let g = &def.guidance;
+    for (key, v, lo, hi) in [
+        (
+            "guidance.loss_bmi_at_least",
+            g.loss_bmi_at_least,
+            18.5,
+            40.0,
+        ),
+        (
+            "guidance.underweight_bmi_below",
+            g.underweight_bmi_below,
+            15.0,
+            25.0,
+        ),
+        (
+            "guidance.max_loss_percent_per_week",
+            g.max_loss_percent_per_week,
+            0.1,
+            2.0,
+        ),
+        (
+            "guidance.min_intake_change_kcal",
+            g.min_intake_change_kcal,
+            10.0,
+            500.0,
+        ),
+        ("guidance.min_walk_minutes", g.min_walk_minutes, 1.0, 60.0),
+        ("guidance.max_walk_minutes", g.max_walk_minutes, 10.0, 240.0),
+    ] {
+        // Sanity limits on the program's own choice (common practice), not clinical advice.
+        if let Some(v) = v
+            && (!v.is_finite() || v < lo || v > hi)
+        {
+            out.push(
+                err(key, format!("guidance setting out of range: {v}"))
+                    .expected(format!("a number from {lo} to {hi}"))
+                    .found(v.to_string()),
+            );
+        }
+    }
+    if let (Some(lo), Some(hi)) = (g.underweight_bmi_below, g.loss_bmi_at_least)
+        && lo >= hi
+    {
+        out.push(
+            err(
+                "guidance.underweight_bmi_below",
+                "the underweight cut-off is not below the loss cut-off".into(),
+            )
+            .expected(format!("a BMI below guidance.loss_bmi_at_least ({hi})"))
+            .found(lo.to_string()),
+        );
+    }
+    if let Some(f) = &def.followup {
+        let r = f.recipient.trim();
+        if r.is_empty() || r.chars().any(char::is_control) || r.chars().count() > 200 {
+            out.push(
+                err(
+                    "followup.recipient",
+                    "the follow-up list needs a recipient in plain words".into(),
+                )
+                .expected("one line of text naming who receives the list, e.g. `Program nurse, North Plant`")
+                .found(format!("{:?}", f.recipient))
+                .hint("the list names participants with clinical flags; say who it is for, or remove `followup:` to turn it off"),
+            );
+        }
+    }
     let delim = def.input.delimiter;
     if !delim.is_ascii() || matches!(delim, '"' | '\n' | '\r') || delim.is_ascii_alphanumeric() {
         out.push(
@@ -440,6 +506,30 @@ report:
         assert_eq!(e.len(), 1);
         assert_eq!(e[0].line, Some(5));
         assert_eq!(e[0].found.as_deref(), Some("`colour`"));
+    }
+
+    #[test]
+    fn followup_and_guidance_settings_are_checked_with_their_line() {
+        let ok = format!(
+            "{GOOD}followup:\n  recipient: Program nurse\nguidance:\n  min_walk_minutes: 15\n"
+        );
+        let p = parse_program(root(), &ok).unwrap();
+        assert_eq!(
+            p.def.followup.as_ref().map(|f| f.recipient.as_str()),
+            Some("Program nurse")
+        );
+        assert_eq!(p.def.guidance.min_walk_minutes, Some(15.0));
+        let bad =
+            format!("{GOOD}followup:\n  recipient: '  '\nguidance:\n  loss_bmi_at_least: 60\n");
+        let e = parse_program(root(), &bad).unwrap_err();
+        let good_lines = GOOD.lines().count() as u64;
+        let by = |f: &str| e.iter().find(|d| d.field.as_deref() == Some(f)).unwrap();
+        assert_eq!(by("followup.recipient").line, Some(good_lines + 2));
+        assert_eq!(by("guidance.loss_bmi_at_least").line, Some(good_lines + 4));
+        assert_eq!(e.len(), 2, "{e:#?}");
+        // An unknown key under followup is refused like any other.
+        let typo = format!("{GOOD}followup:\n  recipent: Program nurse\n");
+        assert!(parse_program(root(), &typo).is_err());
     }
 
     #[test]

@@ -42,6 +42,42 @@ pub struct ProgramDef {
     /// How input files are read.
     #[serde(default)]
     pub input: InputDef,
+    /// Thresholds of the participant report's guidance (every key optional).
+    #[serde(default)]
+    pub guidance: GuidanceDef,
+    /// The clinician follow-up list: written only when this names its recipient.
+    #[serde(default)]
+    pub followup: Option<FollowupDef>,
+}
+
+/// `guidance:` — thresholds of the decision table in `src/report/guidance.rs`. Every key is
+/// optional; the defaults and their sources are in [`crate::report::guidance::Thresholds`].
+/// Intake floors and the fastest safe loss in kg are the `energy` module's settings
+/// (`intake_floor_female`, `intake_floor_male`, `max_safe_loss_kg_per_week`), so they are set
+/// in one place.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GuidanceDef {
+    /// BMI at or above which loss may still be the goal (default 25, WHO).
+    pub loss_bmi_at_least: Option<f64>,
+    /// BMI below which any further loss is for a clinician (default 18.5, WHO).
+    pub underweight_bmi_below: Option<f64>,
+    /// Fastest loss an option may lead to, % of body weight a week (default 1, common practice).
+    pub max_loss_percent_per_week: Option<f64>,
+    /// Smallest intake change worth proposing, kcal a day (default 100, common practice).
+    pub min_intake_change_kcal: Option<f64>,
+    /// Smallest walking change worth proposing, minutes a day (default 10, common practice).
+    pub min_walk_minutes: Option<f64>,
+    /// Most walking an option may propose, minutes a day (default 60, common practice).
+    pub max_walk_minutes: Option<f64>,
+}
+
+/// `followup:` — who receives the clinician follow-up list.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FollowupDef {
+    /// The person or role the list is for (`Program nurse, North Plant`), printed on it.
+    pub recipient: String,
 }
 
 /// `program:` — identity and dates.

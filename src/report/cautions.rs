@@ -1,11 +1,16 @@
 //! The cautions printed on every report. One place, so HTML and PDF carry the same words.
 
-/// Cautions on a participant's own report.
-pub fn participant() -> Vec<String> {
+/// Cautions on a participant's own report (the floors are the program's).
+pub fn participant(t: &super::guidance::Thresholds) -> Vec<String> {
     vec![
         "This report is information about your progress in the program, not medical advice. It does not diagnose or treat any condition.".into(),
         "Figures are estimates from your own records and from published equations and models; real bodies vary, and every figure has some uncertainty.".into(),
-        "Very low intakes (below about 1,200 kcal a day for women or 1,500 for men), losing more than about 1 kg (2 lb) a week for several weeks, a BMI under 18.5, and lab values in the prediabetes or diabetes range should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise.".into(),
+        format!(
+            "Very low intakes (below about {} kcal a day for women or {} for men), losing more than about 1 kg (2 lb) a week for several weeks, a BMI under {}, and lab values in the prediabetes or diabetes range should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise.",
+            super::format::int(t.floor_female),
+            super::format::int(t.floor_male),
+            super::format::fixed(t.underweight_bmi_below, 1)
+        ),
         "Local rules and the advice of your own licensed clinician come first.".into(),
     ]
 }
@@ -20,6 +25,6 @@ pub fn group(min_cell: u32) -> Vec<String> {
             min_cell
         ),
         "Weight outcomes are given under intention-to-treat (everyone who started, with the starting weight carried forward for anyone without a recent weigh-in) and for completers only; completer figures alone overstate what a program achieves.".into(),
-        "Individual clinical flags (very low intake, fast loss, low BMI, lab values in the diabetes range) are routed to participants' own reports for review by a licensed clinician; only their number appears here. Local rules and licensed practice come first.".into(),
+        "Individual clinical flags (very low intake, fast loss, low BMI, lab values in the diabetes range) are routed to participants' own reports and, where the program names a recipient, to a private follow-up list for the program's clinician; only their number appears here. Local rules and licensed practice come first.".into(),
     ]
 }

@@ -1,5 +1,10 @@
 //! Number, unit, date and percentage formatting shared by the report model and the template
 //! helpers, so HTML and PDF print every figure the same way.
+//!
+//! The reports are written in English, and the thousands separator is decided once, here, for
+//! that locale: a comma (`1,850 kcal`), as English-language style guides and CLDR's `en` locale
+//! write it. Every whole number of four digits or more in a report goes through [`int`] (or
+//! [`kcal`] and friends), so one page never mixes `1,020` and `1020`.
 
 use chrono::NaiveDate;
 use cohortpress_metric_api::UnitSystem;
@@ -68,12 +73,87 @@ pub fn percent(p: f64, decimals: usize) -> String {
     format!("{} %", fixed(p, decimals))
 }
 
-/// Energy: `1 850 kcal/day` (thin grouping so large numbers stay readable).
+/// The thousands separator of the report locale (English: a comma).
+pub const THOUSANDS_SEPARATOR: char = ',';
+
+/// A whole number with the locale's thousands separator: `1,850`, `−1,020`, `950`.
+pub fn int(v: f64) -> String {
+    group_thousands(v.round() as i64)
+}
+
+/// `v` rounded to the nearest multiple of `step` (for amounts people act on: 50 kcal, 5 min).
+pub fn round_to(v: f64, step: f64) -> f64 {
+    (v / step).round() * step
+}
+
+/// `v` rounded down to a multiple of `step`.
+pub fn floor_to(v: f64, step: f64) -> f64 {
+    (v / step + 1e-9).floor() * step
+}
+
+/// `v` rounded up to a multiple of `step`.
+pub fn ceil_to(v: f64, step: f64) -> f64 {
+    (v / step - 1e-9).ceil() * step
+}
+
+/// Rewrites module text for a participant's page: a bare whole number of four or more digits
+/// followed by ` kcal` gets the locale's separator (`1150 kcal` → `1,150 kcal`), and an ISO
+/// date (`2026-08-01`) becomes the report's date format (`1 Aug 2026`). Years and other numbers
+/// are left alone.
+pub fn tidy_message(text: &str) -> String {
+    let chars: Vec<char> = text.chars().collect();
+    let mut out = String::with_capacity(text.len() + 8);
+    // After "interval 1920", the " to 2199" that closes the range is energy too.
+    let mut range_partner = false;
+    let mut i = 0;
+    while i < chars.len() {
+        let c = chars[i];
+        let prev_ok = i == 0 || !(chars[i - 1].is_alphanumeric() || chars[i - 1] == '.');
+        if c.is_ascii_digit() && prev_ok {
+            let mut j = i;
+            while j < chars.len() && chars[j].is_ascii_digit() {
+                j += 1;
+            }
+            let digits: String = chars[i..j].iter().collect();
+            // ISO date?
+            if j - i == 4 && j + 6 <= chars.len() {
+                let cand: String = chars[i..j + 6].iter().collect();
+                let end_ok = chars.get(j + 6).is_none_or(|c| !c.is_ascii_digit());
+                if end_ok && let Ok(d) = NaiveDate::parse_from_str(&cand, "%Y-%m-%d") {
+                    out.push_str(&date(d));
+                    i = j + 6;
+                    continue;
+                }
+            }
+            let rest: String = chars[j..(j + 5).min(chars.len())].iter().collect();
+            let is_energy = rest == " kcal" || out.ends_with("interval ") || range_partner;
+            range_partner = out.ends_with("interval ");
+            if j - i >= 4
+                && is_energy
+                && let Ok(n) = digits.parse::<i64>()
+            {
+                out.push_str(&group_thousands(n));
+            } else {
+                out.push_str(&digits);
+            }
+            i = j;
+            continue;
+        }
+        if range_partner && !(c == ' ' || c.is_alphabetic() || c == '–') {
+            range_partner = false;
+        }
+        out.push(c);
+        i += 1;
+    }
+    out
+}
+
+/// Energy: `1,850 kcal/day`.
 pub fn kcal_per_day(v: f64) -> String {
     format!("{} kcal/day", group_thousands(v.round() as i64))
 }
 
-/// Energy without a time unit, for sentences that say "a day" in words: `1 850 kcal`.
+/// Energy without a time unit, for sentences that say "a day" in words: `1,850 kcal`.
 pub fn kcal(v: f64) -> String {
     format!("{} kcal", group_thousands(v.round() as i64))
 }
@@ -136,7 +216,7 @@ fn group_thousands(v: i64) -> String {
     let mut out = String::new();
     for (i, ch) in digits.chars().enumerate() {
         if i > 0 && (digits.len() - i).is_multiple_of(3) {
-            out.push('\u{202f}');
+            out.push(THOUSANDS_SEPARATOR);
         }
         out.push(ch);
     }
@@ -155,13 +235,36 @@ mod tests {
         assert_eq!(weight_change(-3.21, UnitSystem::Metric), "\u{2212}3.2 kg");
         assert_eq!(weight_change(0.01, UnitSystem::Metric), "0.0 kg");
         assert_eq!(percent_change(1.25), "+1.2 %");
-        assert_eq!(kcal_per_day(1850.4), "1\u{202f}850 kcal/day");
+        assert_eq!(kcal_per_day(1850.4), "1,850 kcal/day");
+        assert_eq!(int(-1020.2), "\u{2212}1,020");
+        assert_eq!(int(950.0), "950");
+        assert_eq!(round_to(651.0, 50.0), 650.0);
+        assert_eq!(floor_to(699.0, 50.0), 650.0);
+        assert_eq!(ceil_to(51.0, 5.0), 55.0);
+        assert_eq!(ceil_to(50.0, 5.0), 50.0);
         assert_eq!(kcal_change(-350.0), "\u{2212}350 kcal/day");
-        assert_eq!(kcal(1125.6), "1\u{202f}126 kcal");
+        assert_eq!(kcal(1125.6), "1,126 kcal");
         assert_eq!(height(167.64, UnitSystem::UsCustomary), "5 ft 6 in");
         assert_eq!(
             date(NaiveDate::from_ymd_opt(2026, 9, 4).unwrap()),
             "4 Sep 2026"
+        );
+    }
+
+    #[test]
+    fn module_text_gets_one_number_and_date_format() {
+        assert_eq!(
+            tidy_message("about 1150 kcal a day, below 1200 kcal a day (Archer et al. 2013)"),
+            "about 1,150 kcal a day, below 1,200 kcal a day (Archer et al. 2013)"
+        );
+        assert_eq!(
+            tidy_message("most recently 2026-08-01 to 2026-08-21: 950 kcal, 1.5 kg"),
+            "most recently 1 Aug 2026 to 21 Aug 2026: 950 kcal, 1.5 kg"
+        );
+        assert_eq!(tidy_message("HbA1c 6.8 %"), "HbA1c 6.8 %");
+        assert_eq!(
+            tidy_message("about 2060 kcal/d (95 % interval 1920 to 2199). Archer et al. 2013"),
+            "about 2,060 kcal/d (95 % interval 1,920 to 2,199). Archer et al. 2013"
         );
     }
 }

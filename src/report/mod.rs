@@ -7,8 +7,10 @@
 //! units, so an HTML report and its PDF never disagree.
 
 pub mod cautions;
+pub mod followup;
 pub mod format;
 pub mod group;
+pub mod guidance;
 pub mod participant;
 pub mod pdf;
 pub mod templates;

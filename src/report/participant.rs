@@ -2,6 +2,7 @@
 //! built once from the module outputs so both formats print the same figures.
 
 use super::format as fmt;
+use super::guidance::{self, GuidanceView};
 use super::{ChartView, Kv, TableView, cautions};
 use crate::diag::{Diagnostic, Severity};
 use crate::modules::ModuleResults;
@@ -37,8 +38,8 @@ pub struct ParticipantReportContext {
     pub adherence: Option<AdherenceView>,
     /// Plateau assessments, when a plateau was found.
     pub plateaus: Vec<PlateauView>,
-    /// "What it takes" options.
-    pub options: Vec<OptionView>,
+    /// "What to try next": the guidance the decision table chose (see [`super::guidance`]).
+    pub guidance: GuidanceView,
     /// Lab values with categories.
     pub labs: Option<TableView>,
     /// Flags raised by the modules (clinical ones first).
@@ -104,17 +105,6 @@ pub struct PlateauView {
     pub verdict: String,
     /// The numbers behind it.
     pub evidence: String,
-}
-
-/// One "what it takes" option.
-#[derive(Debug, Clone, Serialize)]
-pub struct OptionView {
-    /// The option in plain words.
-    pub text: String,
-    /// Whether it is within safe limits.
-    pub feasible: bool,
-    /// Why not, when not.
-    pub reason: String,
 }
 
 /// A flag shown to the participant.
@@ -233,13 +223,13 @@ pub fn build(
         ));
     }
     if let Some(bmi) = sc(outcomes, "bmi_current_kg_m2") {
-        let cat = outcomes
+        let code = outcomes
             .and_then(|o| o.texts.iter().find(|t| t.name == "bmi_category_current"))
-            .map(|t| t.label.clone())
+            .map(|t| t.value.as_str())
             .unwrap_or_default();
         summary.push(Kv::new(
             "BMI",
-            &format!("{} kg/m², {cat}", fmt::fixed(bmi, 1)),
+            &format!("{} kg/m²{}", fmt::fixed(bmi, 1), bmi_range_words(code)),
         ));
     }
 
@@ -289,7 +279,7 @@ pub fn build(
     // Only plateaus that reach into the last four weeks before the period: older ones are
     // history (still shaded on the weight chart), not something to act on now.
     let recent = plan.period.from - chrono::Duration::days(28);
-    let plateaus = energy
+    let plateaus: Vec<PlateauView> = energy
         .and_then(|e| e.table("plateau_assessment"))
         .map(|t| {
             t.rows
@@ -310,19 +300,16 @@ pub fn build(
                 .collect()
         })
         .unwrap_or_default();
-    let options = energy
-        .and_then(|e| e.table("options"))
-        .map(|t| {
-            // A row without an amount means the module could not estimate the current balance
-            // (its flag says why): there is no option to offer, so the report says so instead
-            // of proposing "0 kcal less".
-            t.rows
-                .iter()
-                .filter(|r| cell_num(t, r, "change_per_day").is_some())
-                .map(|r| option_view(t, r))
-                .collect()
-        })
-        .unwrap_or_default();
+    let guidance = guidance::build(plan, data, results);
+    // Plateau readings belong with advice to restart a loss; for anyone else (past the target,
+    // regaining, withdrawn, for a clinician first) they would invite the wrong action.
+    // Only the latest plateau: overlapping readings of one stall would say the same thing
+    // several times.
+    let plateaus = if guidance.show_plateaus {
+        plateaus.into_iter().last().into_iter().collect()
+    } else {
+        Vec::new()
+    };
 
     // Labs.
     let labs = outcomes
@@ -370,7 +357,7 @@ pub fn build(
             }
             .into(),
             clinical: f.severity == FlagSeverity::Clinical,
-            message: f.message.clone(),
+            message: fmt::tidy_message(&f.message),
         })
         .collect();
     flags.sort_by_key(|f| match f.severity.as_str() {
@@ -440,13 +427,13 @@ pub fn build(
         energy: energy_view,
         adherence: adherence_view,
         plateaus,
-        options,
+        guidance,
         labs,
         flags,
         data_notes,
         module_failures,
         extra,
-        cautions: cautions::participant(),
+        cautions: cautions::participant(&guidance::Thresholds::from_plan(plan)),
     };
     ParticipantReport {
         ctx,
@@ -538,33 +525,20 @@ fn plateau_evidence(t: &Table, r: &[Cell], units: UnitSystem) -> String {
     parts.join(" ")
 }
 
-fn option_view(t: &Table, r: &[Cell]) -> OptionView {
-    let kind = cell_str(t, r, "kind");
-    let change = cell_num(t, r, "change_per_day").unwrap_or(0.0);
-    let text = match kind.as_str() {
-        "intake" => format!(
-            "Eat about {} a day less{}",
-            fmt::kcal(change.abs()),
-            cell_num(t, r, "resulting_intake_kcal_per_day")
-                .map(|v| format!(" (about {} a day in all)", fmt::kcal(v)))
-                .unwrap_or_default()
-        ),
-        "walking" => format!(
-            "Walk about {} minutes more a day at an easy pace (about 3 mph / 5 km/h)",
-            fmt::fixed(change.abs(), 0)
-        ),
-        "combined" => format!(
-            "Eat less, down to about {} a day, and walk about {} minutes more a day",
-            fmt::kcal(cell_num(t, r, "resulting_intake_kcal_per_day").unwrap_or(0.0)),
-            fmt::fixed(change.abs(), 0)
-        ),
-        other => format!("{other}: {}", fmt::fixed(change, 0)),
+/// Person-first words for a WHO BMI range (the standard labels stay in the tidy metrics and
+/// group tables): ` — your BMI is in the range the WHO calls …`.
+fn bmi_range_words(code: &str) -> String {
+    // WHO 2000, Technical Report Series 894: cut-offs 18.5, 25, 30, 35, 40.
+    let (name, range) = match code {
+        "underweight" => ("underweight", "below 18.5"),
+        "normal" => ("normal weight", "18.5 to 24.9"),
+        "overweight" => ("pre-obese (overweight)", "25 to 29.9"),
+        "obesity_class_1" => ("obesity class I", "30 to 34.9"),
+        "obesity_class_2" => ("obesity class II", "35 to 39.9"),
+        "obesity_class_3" => ("obesity class III", "40 or more"),
+        _ => return String::new(),
     };
-    OptionView {
-        text,
-        feasible: cell_str(t, r, "feasible") == "yes",
-        reason: cell_str(t, r, "reason"),
-    }
+    format!("; your BMI is in the range {range}, which the WHO calls “{name}”")
 }
 
 fn weight_chart(
@@ -717,7 +691,7 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
         {
             let mut text = fmt::kcal_per_day(v);
             if let (Some(l), Some(u)) = (s.lower, s.upper) {
-                text = format!("{text} (95 % interval {}–{})", l.round(), u.round());
+                text = format!("{text} (95 % interval {}–{})", fmt::int(l), fmt::int(u));
             }
             items.push(Kv::new(label, &text));
         }
@@ -778,7 +752,7 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
             let mut row = vec![fmt::date(d)];
             row.extend(
                 vals.iter()
-                    .map(|v| v.map(|x| fmt::fixed(x, 0)).unwrap_or_else(|| "–".into())),
+                    .map(|v| v.map(fmt::int).unwrap_or_else(|| "–".into())),
             );
             table.rows.push(row);
         }

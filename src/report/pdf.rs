@@ -97,9 +97,10 @@ pub fn participant(r: &ParticipantReport) -> Result<Vec<u8>, RenderError> {
         }
         b.push(table(&a.chart.table, vec![2.2, 1.2, 1.4, 1.4, 1.2]));
     }
+    let g = &c.guidance;
     b.push(Block::Heading {
         level: 2,
-        text: "What to try next".into(),
+        text: g.heading.clone(),
     });
     for p in &c.plateaus {
         b.push(Block::Callout {
@@ -112,26 +113,18 @@ pub fn participant(r: &ParticipantReport) -> Result<Vec<u8>, RenderError> {
             p.evidence
         )));
     }
-    if c.options.is_empty() {
-        b.push(Block::Paragraph(
-            "Keep going with what works for you. If your weight levels off, this section will show what it would take to get back to a steady loss.".into(),
-        ));
-    } else {
-        b.push(Block::Paragraph(
-            "What it would take to get back to a steady loss of about half a kilogram (one pound) a week, each change on its own (a mix of smaller changes works too):".into(),
-        ));
+    for para in &g.paragraphs {
+        b.push(Block::Paragraph(para.clone()));
+    }
+    if !g.options.is_empty() {
+        b.push(Block::Paragraph(g.options_intro.clone()));
         b.push(Block::Bullets(
-            c.options
-                .iter()
-                .map(|o| {
-                    if o.feasible {
-                        o.text.clone()
-                    } else {
-                        format!("{}. Not advised on its own: {}", o.text, o.reason)
-                    }
-                })
-                .collect(),
+            g.options.iter().map(|o| o.text.clone()).collect(),
         ));
+        b.push(Block::Small(g.options_note.clone()));
+    }
+    for para in &g.closing {
+        b.push(Block::Paragraph(para.clone()));
     }
     if let Some(l) = &c.labs {
         b.push(Block::Heading {
@@ -204,6 +197,44 @@ pub fn participant(r: &ParticipantReport) -> Result<Vec<u8>, RenderError> {
             "{}/{}/{}",
             c.program.id, c.program.period_to, c.participant.id
         ),
+    };
+    render_pdf(&doc).map_err(|e| RenderError::Pdf(e.to_string()))
+}
+
+/// The clinician follow-up list as PDF bytes.
+pub fn followup(c: &super::followup::FollowupContext) -> Result<Vec<u8>, RenderError> {
+    let mut b = vec![
+        Block::Heading {
+            level: 1,
+            text: "Clinician follow-up list".into(),
+        },
+        Block::Small(format!(
+            "Private · for {} · {} · prepared {}",
+            c.recipient, c.program.period_label, c.program.as_of
+        )),
+        Block::Paragraph(c.purpose.clone()),
+        Block::Paragraph(format!(
+            "{} participant(s) with a clinical flag this period; {} with a flag that is new.",
+            c.participants, c.with_new
+        )),
+        Block::Small(c.compared_with.clone()),
+    ];
+    if c.table.rows.is_empty() {
+        b.push(Block::Paragraph(
+            "No participant has a clinical flag this period.".into(),
+        ));
+    } else {
+        b.push(table(&c.table, vec![1.4, 1.5, 1.6, 2.1, 2.4, 1.3, 3.2]));
+    }
+    let doc = Document {
+        title: format!("Clinician follow-up list · {}", c.program.period_label),
+        subject: format!("Clinician follow-up list, {}", c.program.title),
+        author: c.program.tool.clone(),
+        header: format!("{} · {}", c.program.title, c.program.period_label),
+        footer: format!("Private · for {}", c.recipient),
+        blocks: b,
+        created: created(&c.program.period_to),
+        id_seed: format!("{}/{}/followup", c.program.id, c.program.period_to),
     };
     render_pdf(&doc).map_err(|e| RenderError::Pdf(e.to_string()))
 }

@@ -24,6 +24,10 @@ pub const BUILTIN: &[(&str, &str)] = &[
         include_str!("../../report-templates/group.html.hbs"),
     ),
     (
+        "followup.html.hbs",
+        include_str!("../../report-templates/followup.html.hbs"),
+    ),
+    (
         "partials/style.hbs",
         include_str!("../../report-templates/partials/style.hbs"),
     ),

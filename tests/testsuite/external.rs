@@ -324,9 +324,9 @@ fn runaway_output_is_cut_off_and_contained() {
 
 #[test]
 fn a_module_past_its_timeout_is_stopped_and_contained() {
-    let m = contained("sleep", 1.0);
+    let m = contained("sleep", 2.0);
     assert!(
-        m.starts_with("external module: did not finish within 1 s and was stopped"),
+        m.starts_with("external module: did not finish within 2 s and was stopped"),
         "{m}"
     );
     assert!(
@@ -737,6 +737,8 @@ struct Lingered {
     /// The module's working folder and how many entries it held when the module started.
     cwd: PathBuf,
     entries: usize,
+    /// The working folder's permission bits, in octal.
+    mode: String,
     /// The module and every process it started.
     pids: Vec<u32>,
 }
@@ -745,13 +747,14 @@ fn lingered(pid_file: &Path) -> Vec<Lingered> {
     let text = std::fs::read_to_string(pid_file).expect("the module wrote its pid file");
     let mut calls: Vec<Lingered> = Vec::new();
     for line in text.lines() {
-        let mut parts = line.splitn(3, ' ');
+        let mut parts = line.splitn(4, ' ');
         let pid: u32 = parts.next().unwrap().parse().unwrap();
         match parts.next().unwrap() {
             "-" => calls.last_mut().unwrap().pids.push(pid),
             cwd => calls.push(Lingered {
                 cwd: PathBuf::from(cwd),
                 entries: parts.next().unwrap().parse().unwrap(),
+                mode: parts.next().unwrap().to_string(),
                 pids: vec![pid],
             }),
         }
@@ -827,7 +830,8 @@ fn lingering_program(mode: &str, only_for: Option<&str>, timeout: f64) -> (Progr
 fn binary_uses_the_answer_of_a_module_that_leaves_processes_behind_and_stops_them() {
     // A timeout far longer than the test: were the answer awaited until every process holding
     // the pipe let go, the calls would time out and the values below would be missing.
-    let (t, pid_file) = lingering_program("ok", None, 600.0);
+    // `@@`: one of the processes leaves the module's process group, as a daemon would.
+    let (t, pid_file) = lingering_program("ok@", None, 600.0);
     let out = t.run(&MARCH);
     assert_eq!(out.code, cohortpress::exit_code::SUCCESS, "{}", out.stderr);
     let rows = participants_csv(&t);
@@ -840,13 +844,14 @@ fn binary_uses_the_answer_of_a_module_that_leaves_processes_behind_and_stops_the
     // The handshake and one computation per participant.
     assert_eq!(calls.len(), 3, "{calls:?}");
     let pids: Vec<u32> = calls.iter().flat_map(|c| c.pids.iter().copied()).collect();
-    assert_eq!(pids.len(), 9, "{calls:?}");
+    assert_eq!(pids.len(), 12, "{calls:?}");
     assert_none_survive(&pids);
 
     // Each call ran in a fresh, empty working folder of its own, outside the program folder,
     // removed after the call.
     for c in &calls {
         assert_eq!(c.entries, 0, "{c:?}");
+        assert_eq!(c.mode, "700", "{c:?}");
         assert!(!c.cwd.starts_with(&t.dir), "{c:?}");
         assert!(!c.cwd.exists(), "{c:?}");
     }
@@ -859,7 +864,7 @@ fn binary_uses_the_answer_of_a_module_that_leaves_processes_behind_and_stops_the
 #[cfg(target_os = "linux")]
 #[test]
 fn binary_stops_a_hanging_module_with_everything_it_started() {
-    let (t, pid_file) = lingering_program("sleep", Some("XP-02"), 2.0);
+    let (t, pid_file) = lingering_program("sleep@", Some("XP-02"), 2.0);
     let out = t.run(&MARCH);
     assert_eq!(
         out.code,
@@ -1019,7 +1024,7 @@ fn binary_escapes_formula_like_text_in_every_csv_and_keeps_numbers() {
 fn binary_interrupted_by_sigterm_stops_the_running_modules() {
     use std::os::unix::process::ExitStatusExt;
     // XP-02's call hangs (30 s) well inside its timeout; the run is stopped while it does.
-    let (t, pid_file) = lingering_program("sleep", Some("XP-02"), 600.0);
+    let (t, pid_file) = lingering_program("sleep@", Some("XP-02"), 600.0);
     let args: Vec<String> = MARCH
         .iter()
         .map(|a| a.replace("{dir}", &t.dir.to_string_lossy()))
@@ -1040,7 +1045,7 @@ fn binary_interrupted_by_sigterm_stops_the_running_modules() {
         calls = std::fs::read_to_string(&pid_file)
             .map(|_| lingered(&pid_file))
             .unwrap_or_default();
-        if calls.len() == 3 && calls.iter().all(|c| c.pids.len() == 3) {
+        if calls.len() == 3 && calls.iter().all(|c| c.pids.len() == 4) {
             break;
         }
         std::thread::sleep(std::time::Duration::from_millis(20));

@@ -489,6 +489,22 @@ fn links_and_special_files_are_never_read() {
         ),
         "{shown}"
     );
+
+    // program.yaml as a link is refused too: nothing is computed.
+    std::fs::rename(t.dir.join("program.yaml"), scratch.join("program.yaml")).unwrap();
+    std::os::unix::fs::symlink(scratch.join("program.yaml"), t.dir.join("program.yaml")).unwrap();
+    let r = run_bin(&t, &["check", "{dir}", "--as-of", AS_OF], &[], None);
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::PROGRAM_INVALID,
+        "{}",
+        r.stderr
+    );
+    let shown = format!("{}{}", r.stdout, r.stderr);
+    assert!(
+        shown.contains("program.yaml: cannot read the program file (it is a symbolic link"),
+        "{shown}"
+    );
 }
 
 /// Ceiling on the virtual memory of a run over hostile files. A clean run of a few
@@ -668,7 +684,7 @@ fn external_modules_get_a_minimal_environment_and_are_stopped_at_their_timeout()
          program: {id: ext-fixture, title: Fixture, start: 2027-03-01, end: 2027-05-31}\n\
          modules:\n  \
            - id: peek\n    command: [plugins/fake.py, peek, env]\n  \
-           - id: slow\n    command: [plugins/fake.py, slow, sleep, XP-02]\n    timeout_seconds: 1\n",
+           - id: slow\n    command: [plugins/fake.py, slow, sleep, XP-02]\n    timeout_seconds: 2\n",
     )
     .unwrap();
     let o = t.dir.parent().unwrap().join("out");
@@ -696,7 +712,7 @@ fn external_modules_get_a_minimal_environment_and_are_stopped_at_their_timeout()
     );
     assert!(
         stderr.contains(
-            "XP-02: module slow failed: external module: did not finish within 1 s and was stopped"
+            "XP-02: module slow failed: external module: did not finish within 2 s and was stopped"
         ),
         "{stderr}"
     );

@@ -3,6 +3,7 @@
 
 mod check;
 mod external;
+mod guidance;
 mod harness;
 mod hostile;
 mod operation;

@@ -18,7 +18,8 @@ use std::sync::OnceLock;
 
 const AS_OF: &str = "2026-12-01";
 
-/// The participant whose context and HTML are snapshotted: a plateau with options, labs and
+/// The participant whose context and HTML are snapshotted: past the target (maintenance
+/// guidance), with labs, a plateau on the chart and
 /// every section filled.
 const SNAPSHOT_ID: &str = "SG-007";
 
@@ -180,7 +181,7 @@ fn key_paths(v: &serde_json::Value, prefix: &str, out: &mut BTreeSet<String>) {
 
 /// The documented paths of one `## …` section of CONTEXT.md: the first code span of every
 /// table row.
-fn documented_paths(doc: &str, section: &str) -> BTreeSet<String> {
+pub(crate) fn documented_paths(doc: &str, section: &str) -> BTreeSet<String> {
     let mut out = BTreeSet::new();
     let mut inside = false;
     for line in doc.lines() {
@@ -201,7 +202,7 @@ fn documented_paths(doc: &str, section: &str) -> BTreeSet<String> {
 /// The leaf key paths of several serialised values together (a path with nothing below it:
 /// `summary[].label`, `labs.rows[][]`, `headline`). Containers are implied by their leaves, so
 /// CONTEXT.md lists leaves only.
-fn context_paths<T: serde::Serialize>(values: &[T]) -> BTreeSet<String> {
+pub(crate) fn context_paths<T: serde::Serialize>(values: &[T]) -> BTreeSet<String> {
     let mut all = BTreeSet::new();
     for v in values {
         key_paths(&serde_json::to_value(v).unwrap(), "", &mut all);
@@ -222,7 +223,11 @@ fn leaves(all: &BTreeSet<String>) -> BTreeSet<String> {
         .collect()
 }
 
-fn assert_same_paths(kind: &str, actual: &BTreeSet<String>, documented: &BTreeSet<String>) {
+pub(crate) fn assert_same_paths(
+    kind: &str,
+    actual: &BTreeSet<String>,
+    documented: &BTreeSet<String>,
+) {
     let undocumented: Vec<_> = actual.difference(documented).collect();
     let stale: Vec<_> = documented.difference(actual).collect();
     assert!(

@@ -50,6 +50,8 @@ fn sample_program_runs_end_to_end() {
     for f in ["group/program.html", "group/program.pdf", "manifest.json"] {
         assert!(reports.join(f).is_file(), "missing {f}");
     }
+    // The sample names no follow-up recipient, so no identified list is written.
+    assert!(!reports.join("followup").exists());
 
     // Tidy metrics: one row per usable participant, every module present with units in the
     // column names.

@@ -1,0 +1,451 @@
+//! The clinician follow-up list: every participant with a clinical flag this period, the
+//! reason in plain words, the values and dates behind it, and whether it is new this period or
+//! was already raised in the period before.
+//!
+//! It is identified (names and ids) and therefore private: it is written only when
+//! `followup.recipient` names who receives it, into its own `followup/` folder, owner-only
+//! whatever `--group-readable` says, and nothing from it reaches the group outputs.
+//!
+//! "New" or "continuing" is decided by computing the flags again for the period before the
+//! reported one (same length, ending the day before it starts), from the same inputs. That
+//! keeps re-runs byte-identical and needs no earlier output.
+
+use super::format as fmt;
+use super::templates::TemplateSet;
+use super::{ProgramView, RenderError, TableView};
+use crate::modules::ModuleResults;
+use crate::program::Format;
+use crate::runner::RunPlan;
+use chrono::{Datelike, Months, NaiveDate};
+use cohortpress_metric_api::{FlagSeverity, ParticipantData, Period};
+use serde::{Deserialize, Serialize};
+
+/// The folder of the follow-up outputs inside the output folder.
+pub const FOLDER: &str = "followup";
+
+/// One flag of one participant.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FollowupItem {
+    /// Flag code (`fast_loss`, `low_intake`, `lab_diabetes_range` …).
+    pub code: String,
+    /// The reason in plain words.
+    pub reason: String,
+    /// The module's message, with the values and dates behind the flag.
+    pub details: String,
+    /// Dates named in the details (ISO), or the period when none is.
+    pub dates: String,
+    /// `true` when the flag was not raised for the period before.
+    pub new: bool,
+}
+
+/// A participant's part of the list (kept in their partial result, so `merge` and
+/// `--incremental` rebuild the same list).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FollowupRecord {
+    /// Participant id.
+    pub id: String,
+    /// Name from the profile, if any.
+    pub name: Option<String>,
+    /// Current weight (trend), kg.
+    pub weight_kg: Option<f64>,
+    /// Current BMI, kg/m².
+    pub bmi: Option<f64>,
+    /// Change from baseline, %.
+    pub change_percent: Option<f64>,
+    /// Trend slope over the last four weeks, kg/week.
+    pub rate_kg_per_week: Option<f64>,
+    /// Mean logged intake in the period, kcal/d.
+    pub logged_intake_kcal_per_day: Option<f64>,
+    /// Date of the last weigh-in up to the period's end (ISO).
+    pub last_weigh_in: Option<String>,
+    /// Date the participant left the program, if on or before the period's end (ISO).
+    #[serde(default)]
+    pub left_program: Option<String>,
+    /// The clinical flags.
+    pub items: Vec<FollowupItem>,
+}
+
+/// The reason a flag is on the list, in plain words.
+pub fn reason(code: &str) -> &'static str {
+    match code {
+        "fast_loss" => {
+            "Weight coming down faster than about 1 kg (2 lb) a week for three weeks or more"
+        }
+        "very_low_intake" => "Logged intake very low (below about 800 kcal a day on average)",
+        "low_intake" => "Logged intake below the usual floor for eating less without supervision",
+        "low_bmi" => "BMI below 18.5 (WHO underweight range)",
+        "lab_diabetes_range" => {
+            "Latest glucose or HbA1c in the diabetes range (ADA Standards of Care)"
+        }
+        "medication_review" => {
+            "Takes a glucose-lowering medicine while losing fast or eating little: the dose may need review"
+        }
+        _ => "Raised for review by a licensed clinician",
+    }
+}
+
+/// The period before `p`: the previous calendar month when `p` is one whole month, else the
+/// same number of days just before it. `None` when it would start before the program.
+pub fn previous_period(p: Period, program_start: NaiveDate) -> Option<Period> {
+    let whole_month = p.from.day() == 1
+        && p.to.succ_opt().is_some_and(|n| n.day() == 1)
+        && p.from.month() == p.to.month();
+    let prev = if whole_month {
+        let from = p.from.checked_sub_months(Months::new(1))?;
+        Period {
+            from,
+            to: p.from.pred_opt()?,
+        }
+    } else {
+        let len = (p.to - p.from).num_days();
+        let to = p.from.pred_opt()?;
+        Period {
+            from: to - chrono::Duration::days(len),
+            to,
+        }
+    };
+    (prev.to >= program_start).then_some(Period {
+        from: prev.from.max(program_start),
+        to: prev.to,
+    })
+}
+
+fn clinical_codes(results: &ModuleResults) -> Vec<(String, String)> {
+    results
+        .outputs
+        .iter()
+        .flat_map(|(_, o)| o.flags.iter())
+        .filter(|f| f.severity == FlagSeverity::Clinical)
+        .map(|f| (f.code.clone(), f.message.clone()))
+        .collect()
+}
+
+fn iso_dates(text: &str) -> Vec<String> {
+    let b = text.as_bytes();
+    let mut out = Vec::new();
+    let mut i = 0;
+    while i + 10 <= b.len() {
+        let s = &text[i..i + 10];
+        let boundary_before = i == 0 || !b[i - 1].is_ascii_digit();
+        let boundary_after = b.get(i + 10).is_none_or(|c| !c.is_ascii_digit());
+        if boundary_before
+            && boundary_after
+            && text.is_char_boundary(i)
+            && text.is_char_boundary(i + 10)
+            && NaiveDate::parse_from_str(s, "%Y-%m-%d").is_ok()
+        {
+            out.push(s.to_string());
+            i += 10;
+        } else {
+            i += 1;
+        }
+    }
+    out
+}
+
+/// This participant's part of the follow-up list: `None` when the list is off or they have no
+/// clinical flag. Runs the modules once more for the period before, to tell new flags from
+/// continuing ones.
+pub fn for_participant(
+    plan: &RunPlan,
+    data: &ParticipantData,
+    results: &ModuleResults,
+) -> Option<FollowupRecord> {
+    plan.program.def.followup.as_ref()?;
+    let flags = clinical_codes(results);
+    if flags.is_empty() {
+        return None;
+    }
+    let before: Vec<String> = previous_period(plan.period, plan.program.info.start)
+        .filter(|p| p.to >= data.profile.enrolled)
+        .map(|p| {
+            clinical_codes(&plan.modules.run(&plan.program.info, p, plan.as_of, data))
+                .into_iter()
+                .map(|(c, _)| c)
+                .collect()
+        })
+        .unwrap_or_default();
+    let trend = results.output("trend");
+    let outcomes = results.output("outcomes");
+    let energy = results.output("energy");
+    let period = format!("{} to {}", plan.period.from, plan.period.to);
+    let items = flags
+        .into_iter()
+        .map(|(code, message)| {
+            let dates = iso_dates(&message);
+            FollowupItem {
+                reason: reason(&code).into(),
+                details: fmt::tidy_message(&message),
+                dates: if dates.is_empty() {
+                    period.clone()
+                } else {
+                    dates.join("; ")
+                },
+                new: !before.contains(&code),
+                code,
+            }
+        })
+        .collect();
+    Some(FollowupRecord {
+        id: data.profile.id.clone(),
+        name: data.profile.name.clone(),
+        weight_kg: trend
+            .and_then(|t| t.scalar("current_weight_kg"))
+            .or_else(|| outcomes.and_then(|o| o.scalar("current_weight_kg"))),
+        bmi: outcomes.and_then(|o| o.scalar("bmi_current_kg_m2")),
+        change_percent: outcomes.and_then(|o| o.scalar("change_percent")),
+        rate_kg_per_week: trend.and_then(|t| t.scalar("slope_kg_per_week")),
+        logged_intake_kcal_per_day: energy.and_then(|e| e.scalar("logged_intake_kcal_per_day")),
+        last_weigh_in: data
+            .weights
+            .iter()
+            .rev()
+            .find(|w| w.date <= plan.period.to)
+            .map(|w| w.date.to_string()),
+        left_program: data
+            .profile
+            .withdrew
+            .filter(|w| *w <= plan.period.to)
+            .map(|w| w.to_string()),
+        items,
+    })
+}
+
+/// What `followup.html.hbs` sees.
+#[derive(Debug, Clone, Serialize)]
+pub struct FollowupContext {
+    /// Program and period.
+    pub program: ProgramView,
+    /// Who receives the list (`followup.recipient`).
+    pub recipient: String,
+    /// Who should see it and why.
+    pub purpose: String,
+    /// Number of participants listed.
+    pub participants: usize,
+    /// Of whom with at least one flag new this period.
+    pub with_new: usize,
+    /// The previous period compared with, in words (or why there is none).
+    pub compared_with: String,
+    /// One row per flag: participant, name, status, reason, values, dates, details.
+    pub table: TableView,
+}
+
+fn values(r: &FollowupRecord, plan: &RunPlan) -> String {
+    let units = plan.program.info.units;
+    let mut v = Vec::new();
+    if let Some(w) = r.weight_kg {
+        v.push(format!("weight {}", fmt::weight(w, units)));
+    }
+    if let Some(b) = r.bmi {
+        v.push(format!("BMI {}", fmt::fixed(b, 1)));
+    }
+    if let Some(c) = r.change_percent {
+        v.push(format!("change {}", fmt::percent_change(c)));
+    }
+    if let Some(s) = r.rate_kg_per_week {
+        v.push(format!("last 4 weeks {}", fmt::rate_per_week(s, units)));
+    }
+    if let Some(i) = r.logged_intake_kcal_per_day {
+        v.push(format!("logged intake {}", fmt::kcal_per_day(i)));
+    }
+    if let Some(d) = &r.last_weigh_in
+        && let Ok(d) = NaiveDate::parse_from_str(d, "%Y-%m-%d")
+    {
+        v.push(format!("last weigh-in {}", fmt::date(d)));
+    }
+    if let Some(d) = &r.left_program
+        && let Ok(d) = NaiveDate::parse_from_str(d, "%Y-%m-%d")
+    {
+        v.push(format!("left the program {}", fmt::date(d)));
+    }
+    v.join("; ")
+}
+
+fn pretty_dates(s: &str) -> String {
+    fmt::tidy_message(s)
+}
+
+/// Who should see the list, and why (printed on it and in the README).
+pub const PURPOSE: &str = "This list is for the program's clinician (or the licensed professional the program names), so that each participant whose records raised a clinical flag is offered a review. It names people and holds health data: keep it with clinical records, share it with nobody else, and do not use it to judge or rank participants. Flags come from self-reported records and published cut-offs; they call for a conversation, not a diagnosis.";
+
+/// The follow-up context for a set of records (sorted by id).
+pub fn context(plan: &RunPlan, records: &[FollowupRecord]) -> FollowupContext {
+    let recipient = plan
+        .program
+        .def
+        .followup
+        .as_ref()
+        .map(|f| f.recipient.trim().to_string())
+        .unwrap_or_default();
+    let compared_with = match previous_period(plan.period, plan.program.info.start) {
+        Some(p) => format!(
+            "“New” means the flag was not raised for {} to {}; “continuing” means it was.",
+            fmt::date(p.from),
+            fmt::date(p.to)
+        ),
+        None => "This is the program's first period, so every flag is new.".into(),
+    };
+    let mut rows = Vec::new();
+    for r in records {
+        let vals = values(r, plan);
+        for it in &r.items {
+            rows.push(vec![
+                r.id.clone(),
+                r.name.clone().unwrap_or_default(),
+                if it.new { "new" } else { "continuing" }.into(),
+                it.reason.clone(),
+                vals.clone(),
+                pretty_dates(&it.dates),
+                it.details.clone(),
+            ]);
+        }
+    }
+    FollowupContext {
+        program: ProgramView::new(plan),
+        recipient,
+        purpose: PURPOSE.into(),
+        participants: records.len(),
+        with_new: records
+            .iter()
+            .filter(|r| r.items.iter().any(|i| i.new))
+            .count(),
+        compared_with,
+        table: TableView {
+            header: vec![
+                "Participant".into(),
+                "Name".into(),
+                "Status".into(),
+                "Reason".into(),
+                "Values".into(),
+                "Dates".into(),
+                "Details".into(),
+            ],
+            rows,
+        },
+    }
+}
+
+/// The follow-up list as CSV: one row per flag, values in metric units with the unit in the
+/// column name.
+pub fn csv(plan: &RunPlan, records: &[FollowupRecord]) -> Result<Vec<u8>, RenderError> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let io = |e: csv::Error| RenderError::Template(format!("follow-up CSV: {e}"));
+    w.write_record([
+        "participant_id",
+        "name",
+        "period_from",
+        "period_to",
+        "flag",
+        "status",
+        "reason",
+        "dates",
+        "weight_kg",
+        "bmi_kg_m2",
+        "change_percent",
+        "rate_kg_per_week",
+        "logged_intake_kcal_per_day",
+        "last_weigh_in",
+        "left_program",
+        "details",
+    ])
+    .map_err(io)?;
+    let n = |x: Option<f64>, d: usize| x.map(|v| format!("{v:.d$}")).unwrap_or_default();
+    for r in records {
+        for it in &r.items {
+            w.write_record([
+                r.id.as_str(),
+                r.name.as_deref().unwrap_or(""),
+                &plan.period.from.to_string(),
+                &plan.period.to.to_string(),
+                &it.code,
+                if it.new { "new" } else { "continuing" },
+                &it.reason,
+                &it.dates,
+                &n(r.weight_kg, 1),
+                &n(r.bmi, 1),
+                &n(r.change_percent, 1),
+                &n(r.rate_kg_per_week, 2),
+                &n(r.logged_intake_kcal_per_day, 0),
+                r.last_weigh_in.as_deref().unwrap_or(""),
+                r.left_program.as_deref().unwrap_or(""),
+                &it.details,
+            ])
+            .map_err(io)?;
+        }
+    }
+    w.into_inner()
+        .map_err(|e| RenderError::Template(format!("follow-up CSV: {e}")))
+}
+
+/// Renders the list: `(file name, bytes)` for `followup.html`, `followup.pdf` (as the
+/// program's formats say) and always `followup.csv`.
+pub fn render(
+    plan: &RunPlan,
+    templates: &TemplateSet,
+    records: &[FollowupRecord],
+    formats: &[Format],
+) -> Result<Vec<(String, Vec<u8>)>, RenderError> {
+    let ctx = context(plan, records);
+    let mut out = Vec::new();
+    for f in formats {
+        match f {
+            Format::Html => {
+                let html = templates.render("followup.html", &ctx, serde_json::Map::new())?;
+                out.push(("followup.html".to_string(), html.into_bytes()));
+            }
+            Format::Pdf => out.push(("followup.pdf".to_string(), super::pdf::followup(&ctx)?)),
+        }
+    }
+    out.push(("followup.csv".to_string(), csv(plan, records)?));
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn d(s: &str) -> NaiveDate {
+        s.parse().unwrap()
+    }
+
+    #[test]
+    fn previous_period_is_the_month_before_or_the_same_length_before() {
+        let start = d("2026-04-01");
+        let sep = Period {
+            from: d("2026-09-01"),
+            to: d("2026-09-30"),
+        };
+        assert_eq!(
+            previous_period(sep, start),
+            Some(Period {
+                from: d("2026-08-01"),
+                to: d("2026-08-31")
+            })
+        );
+        let apr = Period {
+            from: d("2026-04-01"),
+            to: d("2026-04-30"),
+        };
+        assert_eq!(previous_period(apr, start), None);
+        let span = Period {
+            from: d("2026-05-11"),
+            to: d("2026-05-20"),
+        };
+        assert_eq!(
+            previous_period(span, start),
+            Some(Period {
+                from: d("2026-05-01"),
+                to: d("2026-05-10")
+            })
+        );
+    }
+
+    #[test]
+    fn dates_are_found_in_messages() {
+        assert_eq!(
+            iso_dates("most recently 2026-08-01 to 2026-08-21: about 1.2 kg a week"),
+            vec!["2026-08-01".to_string(), "2026-08-21".to_string()]
+        );
+        assert!(iso_dates("about 1150 kcal a day").is_empty());
+    }
+}

@@ -1,0 +1,1149 @@
+//! "What to try next": what a participant's report offers, decided by a small table from the
+//! person's state, with every amount checked on the harmful side of its interval.
+//!
+//! # The decision table
+//!
+//! The first row that matches decides (see [`decide`]):
+//!
+//! | # | state | phase | the report offers |
+//! |---|---|---|---|
+//! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
+//! | 2 | a clinical flag that holds advice (fast loss, low or very low intake, low BMI, medication review), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
+//! | 3 | weight trend rising over the last four weeks | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
+//! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
+//! | 5 | target reached, BMI below `loss_bmi_at_least`, or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
+//! | 5a | otherwise, too few recent weigh-ins for a trend | `too_little_data` | as row 4 |
+//! | 6 | losing, loss still the goal | `keep_going` | encouragement; a caution if the pace may be too fast |
+//! | 7 | plateau, stable or unclear, loss still the goal | `restart_loss` | options to restart a steady loss, each safe at the harmful bound |
+//!
+//! A clinical flag that does not hold advice (a lab value in the diabetes range) and a
+//! glucose-lowering medicine noted in the profile add a line asking the person to talk to their
+//! clinician before acting on any suggestion.
+//!
+//! # Safe on the uncertain side
+//!
+//! An option is offered only when it is safe at the end of its interval that would do harm:
+//! the resulting intake is checked against the floor at the *lower* bound of the intake implied
+//! by the weight trend, and the resulting rate of loss against the fastest safe rate at the
+//! *lower* (fastest-loss) bound of the trend slope. Amounts are rounded to 50 kcal and 5
+//! minutes, and nothing smaller than `min_intake_change_kcal` or `min_walk_minutes` is offered.
+//! A regain is met with the intake change that holds the current weight by the model (the
+//! energy balance), offered only when it clears the floor at the lower bound of the implied
+//! intake.
+
+use super::format as fmt;
+use crate::modules::ModuleResults;
+use crate::runner::RunPlan;
+use chrono::NaiveDate;
+use cohortpress_metric_api::{
+    Cell, FlagSeverity, ModuleOutput, ParticipantData, Sex, Table, UnitSystem,
+};
+use serde::Serialize;
+
+/// Step to which intake amounts are rounded, kcal/d.
+const KCAL_STEP: f64 = 50.0;
+/// Step to which walking minutes are rounded.
+const MIN_STEP: f64 = 5.0;
+
+/// Clinical flags after which the report gives no suggestion until a clinician has looked at
+/// them: more loss, or eating less, could do harm.
+pub const HOLDING_FLAGS: [&str; 5] = [
+    "fast_loss",
+    "very_low_intake",
+    "low_intake",
+    "low_bmi",
+    "medication_review",
+];
+
+/// The profile flag that notes a glucose-lowering medicine.
+const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
+
+/// The program's thresholds, with their defaults and where each default comes from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Thresholds {
+    /// BMI at or above which loss may still be the goal. Default 25: the WHO cut-off between
+    /// normal weight and overweight (WHO 2000, Technical Report Series 894).
+    pub loss_bmi_at_least: f64,
+    /// BMI below which further loss is for a clinician. Default 18.5: the WHO cut-off for
+    /// underweight (WHO 2000, Technical Report Series 894).
+    pub underweight_bmi_below: f64,
+    /// Lowest intake an option may lead to, women, kcal/d: the `energy` module's
+    /// `intake_floor_female` (default 1,200; the NIH/NHLBI 1998 Clinical Guidelines give
+    /// 1,000–1,200 kcal/d diets for women — from memory; 1,200 as an unsupervised floor is
+    /// common practice).
+    pub floor_female: f64,
+    /// The same for men: `intake_floor_male` (default 1,500; NIH/NHLBI 1998 give 1,200–1,600
+    /// kcal/d for men — from memory; common practice).
+    pub floor_male: f64,
+    /// Fastest loss an option may lead to, kg/week: the `energy` module's
+    /// `max_safe_loss_kg_per_week` (default 1; NIH/NHLBI 1998: 0.5–1 kg a week — from memory).
+    pub max_loss_kg_per_week: f64,
+    /// Fastest loss as % of body weight a week. Default 1 (common practice); the lower of this
+    /// and `max_loss_kg_per_week` applies.
+    pub max_loss_percent_per_week: f64,
+    /// The rate the options aim for, kg/week: the `energy` module's `target_loss_kg_per_week`
+    /// (default 0.5).
+    pub target_loss_kg_per_week: f64,
+    /// Smallest intake change worth offering, kcal/d. Default 100 (common practice: smaller
+    /// changes are lost in day-to-day variation and in the estimate's own uncertainty).
+    pub min_intake_change_kcal: f64,
+    /// Smallest walking change worth offering, min/d. Default 10 (common practice).
+    pub min_walk_minutes: f64,
+    /// Most extra walking an option may ask for, min/d. Default 60 (common practice: an hour
+    /// a day is already 420 minutes a week, well past the WHO 2020 range of 150–300).
+    pub max_walk_minutes: f64,
+}
+
+impl Default for Thresholds {
+    fn default() -> Self {
+        Thresholds {
+            loss_bmi_at_least: 25.0,
+            underweight_bmi_below: 18.5,
+            floor_female: 1200.0,
+            floor_male: 1500.0,
+            max_loss_kg_per_week: 1.0,
+            max_loss_percent_per_week: 1.0,
+            target_loss_kg_per_week: 0.5,
+            min_intake_change_kcal: 100.0,
+            min_walk_minutes: 10.0,
+            max_walk_minutes: 60.0,
+        }
+    }
+}
+
+impl Thresholds {
+    /// The program's thresholds: `guidance:` in program.yaml over the defaults, and the floors
+    /// and rates from the `energy` module's settings (one place for them).
+    pub fn from_plan(plan: &RunPlan) -> Self {
+        let d = Thresholds::default();
+        let g = &plan.program.def.guidance;
+        let energy = plan.modules.settings("energy");
+        let e = |name: &str, default: f64| {
+            energy
+                .and_then(|s| s.get(name))
+                .and_then(|v| v.as_f64())
+                .unwrap_or(default)
+        };
+        Thresholds {
+            loss_bmi_at_least: g.loss_bmi_at_least.unwrap_or(d.loss_bmi_at_least),
+            underweight_bmi_below: g.underweight_bmi_below.unwrap_or(d.underweight_bmi_below),
+            floor_female: e("intake_floor_female", d.floor_female),
+            floor_male: e("intake_floor_male", d.floor_male),
+            max_loss_kg_per_week: e("max_safe_loss_kg_per_week", d.max_loss_kg_per_week),
+            max_loss_percent_per_week: g
+                .max_loss_percent_per_week
+                .unwrap_or(d.max_loss_percent_per_week),
+            target_loss_kg_per_week: e("target_loss_kg_per_week", d.target_loss_kg_per_week),
+            min_intake_change_kcal: g.min_intake_change_kcal.unwrap_or(d.min_intake_change_kcal),
+            min_walk_minutes: g.min_walk_minutes.unwrap_or(d.min_walk_minutes),
+            max_walk_minutes: g.max_walk_minutes.unwrap_or(d.max_walk_minutes),
+        }
+    }
+
+    /// The intake floor for this person.
+    pub fn floor(&self, sex: Sex) -> f64 {
+        match sex {
+            Sex::Female => self.floor_female,
+            Sex::Male => self.floor_male,
+        }
+    }
+
+    /// The fastest safe loss at body weight `kg`, kg/week.
+    pub fn max_rate(&self, kg: f64) -> f64 {
+        self.max_loss_kg_per_week
+            .min(self.max_loss_percent_per_week / 100.0 * kg)
+    }
+}
+
+/// The weight trend of the last four weeks (the `trend` module's `status`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TrendStatus {
+    /// Going down.
+    Losing,
+    /// Levelled off after a loss.
+    Plateau,
+    /// Going up.
+    Regaining,
+    /// Steady without an earlier loss.
+    Stable,
+    /// Changed little, too noisy to say more.
+    Unclear,
+    /// Too few weigh-ins.
+    Insufficient,
+}
+
+impl TrendStatus {
+    /// From the `trend` module's status code.
+    pub fn from_code(code: &str) -> Self {
+        match code {
+            "losing" => TrendStatus::Losing,
+            "plateau" => TrendStatus::Plateau,
+            "regaining" => TrendStatus::Regaining,
+            "stable" => TrendStatus::Stable,
+            "unclear" => TrendStatus::Unclear,
+            _ => TrendStatus::Insufficient,
+        }
+    }
+}
+
+/// What the decision table reads.
+#[derive(Debug, Clone, PartialEq)]
+pub struct State {
+    /// Left the program on or before the period's end.
+    pub withdrawn: bool,
+    /// Codes of clinical flags raised for this period.
+    pub clinical_flags: Vec<String>,
+    /// Current BMI.
+    pub bmi: Option<f64>,
+    /// Change from baseline, %.
+    pub change_percent: Option<f64>,
+    /// The person's target change, % (negative = loss).
+    pub target_percent: f64,
+    /// Trend of the last four weeks.
+    pub status: TrendStatus,
+}
+
+/// Why maintenance is the goal.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum MaintainWhy {
+    /// The target loss is reached.
+    TargetReached,
+    /// BMI is below the loss cut-off.
+    BmiBelowCutoff,
+    /// The target is not a loss.
+    NoLossTarget,
+}
+
+/// The row of the decision table that applies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Phase {
+    /// Row 1.
+    Withdrawn,
+    /// Row 2.
+    Clinician,
+    /// Row 3.
+    Regain,
+    /// Row 4.
+    TooLittleData,
+    /// Row 5.
+    Maintain(MaintainWhy),
+    /// Row 6.
+    KeepGoing,
+    /// Row 7.
+    RestartLoss,
+}
+
+impl Phase {
+    /// Stable code (`restart_loss` …), shown to templates as `guidance.phase`.
+    pub fn code(self) -> &'static str {
+        match self {
+            Phase::Withdrawn => "withdrawn",
+            Phase::Clinician => "clinician",
+            Phase::Regain => "regain",
+            Phase::TooLittleData => "too_little_data",
+            Phase::Maintain(_) => "maintain",
+            Phase::KeepGoing => "keep_going",
+            Phase::RestartLoss => "restart_loss",
+        }
+    }
+
+    /// Whether options to lose weight may be offered at all.
+    pub fn allows_loss_options(self) -> bool {
+        self == Phase::RestartLoss
+    }
+}
+
+/// The decision table (see the module docs).
+pub fn decide(s: &State, t: &Thresholds) -> Phase {
+    if s.withdrawn {
+        return Phase::Withdrawn;
+    }
+    let holding = s
+        .clinical_flags
+        .iter()
+        .any(|c| HOLDING_FLAGS.contains(&c.as_str()));
+    if holding || s.bmi.is_some_and(|b| b < t.underweight_bmi_below) {
+        return Phase::Clinician;
+    }
+    if s.status == TrendStatus::Regaining {
+        return Phase::Regain;
+    }
+    let (Some(bmi), Some(change)) = (s.bmi, s.change_percent) else {
+        return Phase::TooLittleData;
+    };
+    // Whether loss is still the goal does not depend on the last four weeks' trend.
+    if s.target_percent >= 0.0 {
+        return Phase::Maintain(MaintainWhy::NoLossTarget);
+    }
+    if change <= s.target_percent {
+        return Phase::Maintain(MaintainWhy::TargetReached);
+    }
+    if bmi < t.loss_bmi_at_least {
+        return Phase::Maintain(MaintainWhy::BmiBelowCutoff);
+    }
+    match s.status {
+        TrendStatus::Insufficient => Phase::TooLittleData,
+        TrendStatus::Losing => Phase::KeepGoing,
+        _ => Phase::RestartLoss,
+    }
+}
+
+/// One option offered, with the figures behind it (kept for the tests and the tidy view).
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct OptionView {
+    /// The option in plain words.
+    pub text: String,
+    /// Less intake a day, kcal (0 when the option is walking only).
+    #[serde(skip)]
+    pub intake_cut_kcal: f64,
+    /// More walking a day, minutes (0 when the option is intake only).
+    #[serde(skip)]
+    pub walk_minutes: f64,
+    /// Resulting intake at the lower bound of the implied intake, kcal/d.
+    #[serde(skip)]
+    pub intake_at_lower_bound: Option<f64>,
+    /// Resulting loss rate at the fastest-loss bound of the slope, kg/week.
+    #[serde(skip)]
+    pub rate_at_fast_bound: Option<f64>,
+}
+
+/// The guidance section of a participant's report.
+#[derive(Debug, Clone, Serialize)]
+pub struct GuidanceView {
+    /// Decision-table phase (`restart_loss`, `maintain`, `regain`, `keep_going`,
+    /// `too_little_data`, `clinician`, `withdrawn`).
+    pub phase: String,
+    /// Section heading.
+    pub heading: String,
+    /// What the report says, paragraph by paragraph.
+    pub paragraphs: Vec<String>,
+    /// Sentence before the options; empty when there are none.
+    pub options_intro: String,
+    /// The options offered (every one within the safe limits).
+    pub options: Vec<OptionView>,
+    /// How the options were checked; empty when there are none.
+    pub options_note: String,
+    /// Paragraphs after the options (what comes next, notes for people on medication).
+    pub closing: Vec<String>,
+    /// Whether the plateau readings belong in this section.
+    #[serde(skip)]
+    pub show_plateaus: bool,
+    /// The floor used for this person, kcal/d.
+    #[serde(skip)]
+    pub floor_kcal: f64,
+}
+
+/// A value with an optional 95 % interval.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Est {
+    value: f64,
+    lower: Option<f64>,
+    upper: Option<f64>,
+}
+
+fn est(o: Option<&ModuleOutput>, name: &str) -> Option<Est> {
+    let s = o?.scalar_full(name)?;
+    Some(Est {
+        value: s.value?,
+        lower: s.lower,
+        upper: s.upper,
+    })
+}
+
+fn row_num(t: &Table, kind: &str, col: &str) -> Option<f64> {
+    let k = t.columns.iter().position(|c| c.name == "kind")?;
+    let c = t.columns.iter().position(|c| c.name == col)?;
+    let row = t
+        .rows
+        .iter()
+        .find(|r| matches!(r.get(k), Some(Cell::Text(s)) if s == kind))?;
+    match row.get(c)? {
+        Cell::Number(n) if n.is_finite() => Some(*n),
+        _ => None,
+    }
+}
+
+/// The state the decision table reads, from the module outputs.
+pub fn state_of(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults) -> State {
+    let trend = results.output("trend");
+    let outcomes = results.output("outcomes");
+    State {
+        withdrawn: data.profile.withdrew.is_some_and(|w| w <= plan.period.to),
+        clinical_flags: results
+            .outputs
+            .iter()
+            .flat_map(|(_, o)| o.flags.iter())
+            .filter(|f| f.severity == FlagSeverity::Clinical)
+            .map(|f| f.code.clone())
+            .collect(),
+        bmi: outcomes.and_then(|o| o.scalar("bmi_current_kg_m2")),
+        change_percent: outcomes.and_then(|o| o.scalar("change_percent")),
+        target_percent: data.profile.targets.weight_change_percent,
+        status: TrendStatus::from_code(
+            trend
+                .and_then(|t| t.text("status"))
+                .unwrap_or("insufficient_data"),
+        ),
+    }
+}
+
+/// Everything the wording needs besides the state.
+struct Facts {
+    units: UnitSystem,
+    sex: Sex,
+    withdrew: Option<NaiveDate>,
+    weight_kg: Option<f64>,
+    slope: Option<Est>,
+    implied: Option<Est>,
+    balance: Option<Est>,
+    tdee: Option<f64>,
+    intake_need: Option<f64>,
+    walk_need: Option<f64>,
+    weigh_ins_target: f64,
+    activity_target: f64,
+    lab_in_diabetes_range: bool,
+    glucose_lowering: bool,
+}
+
+/// Builds the guidance section.
+pub fn build(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults) -> GuidanceView {
+    let t = Thresholds::from_plan(plan);
+    let state = state_of(plan, data, results);
+    let phase = decide(&state, &t);
+    let trend = results.output("trend");
+    let energy = results.output("energy");
+    let options = energy.and_then(|e| e.table("options"));
+    let facts = Facts {
+        units: plan.program.info.units,
+        sex: data.profile.sex,
+        withdrew: data.profile.withdrew,
+        weight_kg: trend
+            .and_then(|o| o.scalar("current_weight_kg"))
+            .or_else(|| {
+                results
+                    .output("outcomes")
+                    .and_then(|o| o.scalar("current_weight_kg"))
+            }),
+        slope: est(trend, "slope_kg_per_week"),
+        // The interval of the implied intake; where the module also gives its lower bound as
+        // a scalar of its own, the lower (more harmful) of the two is used.
+        implied: est(energy, "implied_intake_kcal_per_day").map(|mut e| {
+            if let Some(l) = energy.and_then(|o| o.scalar("implied_intake_lower_kcal_per_day")) {
+                e.lower = Some(e.lower.map_or(l, |x| x.min(l)));
+            }
+            e
+        }),
+        balance: est(energy, "energy_balance_kcal_per_day"),
+        tdee: energy.and_then(|e| e.scalar("tdee_kcal_per_day")),
+        intake_need: options
+            .and_then(|o| row_num(o, "intake", "change_per_day"))
+            .map(|x| -x),
+        walk_need: options.and_then(|o| row_num(o, "walking", "change_per_day")),
+        weigh_ins_target: data.profile.targets.weigh_ins_per_week,
+        activity_target: data.profile.targets.activity_minutes_per_week,
+        lab_in_diabetes_range: state
+            .clinical_flags
+            .iter()
+            .any(|c| c == "lab_diabetes_range"),
+        glucose_lowering: data
+            .profile
+            .flags
+            .iter()
+            .any(|f| f == GLUCOSE_LOWERING_FLAG),
+    };
+    compose(phase, &state, &t, &facts)
+}
+
+fn pace(units: UnitSystem) -> &'static str {
+    match units {
+        UnitSystem::Metric => "about 5 km/h",
+        UnitSystem::UsCustomary => "about 3 mph",
+    }
+}
+
+fn rate_words(kg_per_week: f64, units: UnitSystem) -> String {
+    let (v, u) = match units {
+        UnitSystem::Metric => (kg_per_week, "kg"),
+        UnitSystem::UsCustomary => (
+            cohortpress_metric_api::units::Mass::from_kg(kg_per_week).lb(),
+            "lb",
+        ),
+    };
+    format!("{} {u} a week", fmt::fixed(v.abs(), 1))
+}
+
+fn empty(phase: Phase, heading: &str, floor: f64) -> GuidanceView {
+    GuidanceView {
+        phase: phase.code().into(),
+        heading: heading.into(),
+        paragraphs: Vec::new(),
+        options_intro: String::new(),
+        options: Vec::new(),
+        options_note: String::new(),
+        closing: Vec::new(),
+        show_plateaus: false,
+        floor_kcal: floor,
+    }
+}
+
+fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceView {
+    let floor = t.floor(f.sex);
+    let staff = "The program staff are there to help with anything in this report.";
+    let mut g = match phase {
+        Phase::Withdrawn => {
+            let mut g = empty(phase, "From here", floor);
+            let when = f
+                .withdrew
+                .map(|d| format!(" on {}", fmt::date(d)))
+                .unwrap_or_default();
+            g.paragraphs.push(format!(
+                "As you left the program{when}, this report sums up your records up to then and makes no suggestions for change."
+            ));
+            g.paragraphs.push(
+                "If you would like to talk about picking up again, or about anything in this report, please contact the program staff.".into(),
+            );
+            return g;
+        }
+        Phase::Clinician => {
+            let mut g = empty(phase, "Before any change", floor);
+            g.paragraphs.push(
+                "Some of your figures (see “Points to note” below) should be looked at by a licensed clinician before you change how much you eat or how active you are. So this month the report makes no suggestions for change.".into(),
+            );
+            g.paragraphs.push(
+                "Please contact the program staff, who can help you arrange that conversation. If you feel unwell, contact your own doctor.".into(),
+            );
+            return g;
+        }
+        Phase::TooLittleData => {
+            let mut g = empty(phase, "What to try next", floor);
+            g.paragraphs.push(
+                "There are not enough recent weigh-ins to see how your weight is moving, so this report makes no suggestions this month.".into(),
+            );
+            g.paragraphs.push(format!(
+                "Weighing in about {} times a week, at the same time of day, lets next month's report show where you stand. {staff}",
+                fmt::fixed(f.weigh_ins_target, 0)
+            ));
+            g
+        }
+        Phase::Regain => regain(t, f, floor, state),
+        Phase::Maintain(why) => maintain(why, state, t, f, floor),
+        Phase::KeepGoing => keep_going(t, f, floor),
+        Phase::RestartLoss => restart_loss(t, f, floor),
+    };
+    if f.lab_in_diabetes_range {
+        g.closing.push(
+            "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".into(),
+        );
+    }
+    if f.glucose_lowering {
+        g.closing.push(
+            "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".into(),
+        );
+    }
+    g
+}
+
+/// Minutes of walking that stand in for `kcal` a day less intake (the two option rows of the
+/// energy module give the ratio for this person).
+fn walk_for(kcal: f64, f: &Facts) -> Option<f64> {
+    match (f.intake_need, f.walk_need) {
+        (Some(need), Some(walk)) if need > 0.0 && walk > 0.0 => Some(walk * kcal / need),
+        _ => None,
+    }
+}
+
+fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView {
+    let mut g = empty(Phase::Regain, "First, steadying your weight", floor);
+    let rate = f
+        .slope
+        .map(|s| format!(", by about {}", rate_words(s.value, f.units)))
+        .unwrap_or_default();
+    g.paragraphs.push(format!(
+        "Your weight has been going up over the last four weeks{rate}. This happens to most people at some point; the first step is to steady it where it is now."
+    ));
+    // What holds the current weight by the model: the energy balance, rounded; offered only
+    // when it clears the floor at the lower bound of the implied intake.
+    let cut = f
+        .balance
+        .map(|b| fmt::round_to(b.value, KCAL_STEP))
+        .unwrap_or(0.0);
+    let lower_intake = f.implied.map(|i| i.lower.unwrap_or(i.value));
+    if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
+        g.options_intro =
+            "By the energy-balance model, either of these would about stop the rise:".into();
+        g.options.push(OptionView {
+            text: format!("Eat about {} a day less than now.", fmt::kcal(cut)),
+            intake_cut_kcal: cut,
+            walk_minutes: 0.0,
+            intake_at_lower_bound: lower_intake.map(|l| l - cut),
+            rate_at_fast_bound: None,
+        });
+        if let Some(m) = walk_for(cut, f).map(|m| fmt::ceil_to(m, MIN_STEP))
+            && m >= t.min_walk_minutes
+            && m <= t.max_walk_minutes
+        {
+            g.options.push(OptionView {
+                text: format!(
+                    "Walk about {} minutes more a day at an easy pace ({}).",
+                    fmt::fixed(m, 0),
+                    pace(f.units)
+                ),
+                intake_cut_kcal: 0.0,
+                walk_minutes: m,
+                intake_at_lower_bound: lower_intake,
+                rate_at_fast_bound: None,
+            });
+        }
+        if g.options.len() == 1 {
+            g.options_intro = "By the energy-balance model, this would about stop the rise:".into();
+        }
+        g.options_note = format!(
+            "{} to hold your weight where it is, not to bring it down. Even at the careful end of the estimate, eating this much less keeps your intake at or above {} a day.",
+            if g.options.len() == 1 {
+                "This amount aims"
+            } else {
+                "These amounts aim"
+            },
+            fmt::kcal(floor)
+        );
+    } else if cut >= t.min_intake_change_kcal {
+        g.paragraphs.push(format!(
+            "Eating less is not suggested here, because at the careful end of the estimate it could take your intake below {} a day; more activity, or a talk with the program staff, is the safer way to steady your weight.",
+            fmt::kcal(floor)
+        ));
+    } else {
+        g.paragraphs.push(
+            "The rise is small next to the uncertainty of the estimate, so this report suggests no particular amount. Going back to the habits that worked for you earlier — regular weigh-ins, a food log, your usual activity — is a good first step.".into(),
+        );
+    }
+    let loss_goal = state.target_percent < 0.0
+        && state
+            .change_percent
+            .is_none_or(|c| c > state.target_percent)
+        && state.bmi.is_some_and(|b| b >= t.loss_bmi_at_least);
+    if loss_goal {
+        g.closing.push(
+            "Once your weight is steady again, next month's report will look at what it would take to get back to a steady loss.".into(),
+        );
+    }
+    g
+}
+
+fn maintain_sentence(f: &Facts, floor: f64, losing: bool, t: &Thresholds) -> Option<String> {
+    let hold = fmt::round_to(f.tdee?, KCAL_STEP);
+    if hold < floor {
+        return Some(format!(
+            "Your energy needs are estimated at about {} a day, close to {} a day, the lowest intake usually advised without a clinician; please talk to the program staff before eating less.",
+            fmt::kcal(hold),
+            fmt::kcal(floor)
+        ));
+    }
+    let mut s = format!(
+        "By the energy-balance model, about {} a day holds your current weight with your present activity.",
+        fmt::kcal(hold)
+    );
+    if losing
+        && let Some(b) = f.balance
+        && let Some(upper) = b.upper
+        && upper < 0.0
+    {
+        // Sure to be in deficit: say how much more would hold the weight, on the careful side
+        // (the smallest deficit the interval allows).
+        let more = fmt::floor_to(-upper, KCAL_STEP);
+        if more >= t.min_intake_change_kcal {
+            s.push_str(&format!(
+                " If you would like to stop losing, eating about {} a day more than now is a safe first step.",
+                fmt::kcal(more)
+            ));
+        }
+    }
+    Some(s)
+}
+
+fn maintain(
+    why: MaintainWhy,
+    state: &State,
+    t: &Thresholds,
+    f: &Facts,
+    floor: f64,
+) -> GuidanceView {
+    let mut g = empty(Phase::Maintain(why), "Holding your new weight", floor);
+    let change = state.change_percent.unwrap_or(0.0);
+    g.paragraphs.push(match why {
+        MaintainWhy::TargetReached => format!(
+            "You have reached your target of a {} % loss (you are at {} %). The aim from here is to hold your weight, not to lose more.",
+            fmt::fixed(state.target_percent.abs(), 0),
+            fmt::fixed(change.abs(), 1)
+        ),
+        MaintainWhy::BmiBelowCutoff => format!(
+            "Your BMI is now below {}, in the range the WHO calls normal weight, so this report does not suggest losing more. The aim from here is to hold your weight.",
+            fmt::fixed(t.loss_bmi_at_least, 0)
+        ),
+        MaintainWhy::NoLossTarget => {
+            "Your target is to hold your weight, so this report does not suggest losing any.".into()
+        }
+    });
+    let losing = state.status == TrendStatus::Losing;
+    if losing {
+        let rate = f
+            .slope
+            .map(|s| format!(" (about {})", rate_words(s.value, f.units)))
+            .unwrap_or_default();
+        g.paragraphs.push(format!(
+            "Your weight is still coming down{rate}, and it does not need to."
+        ));
+    }
+    if let Some(s) = maintain_sentence(f, floor, losing, t) {
+        g.paragraphs.push(s);
+    }
+    if state.status == TrendStatus::Insufficient {
+        g.paragraphs.push(format!(
+            "Weighing in about {} times a week helps you notice early if your weight starts to creep up.",
+            fmt::fixed(f.weigh_ins_target, 0)
+        ));
+    }
+    g.paragraphs.push(format!(
+        "Staying active — your program target is {} minutes a week — helps most people hold a lower weight.",
+        fmt::fixed(f.activity_target, 0)
+    ));
+    g
+}
+
+fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
+    let mut g = empty(Phase::KeepGoing, "What to try next", floor);
+    let rate = f
+        .slope
+        .map(|s| format!(", at about {}", rate_words(s.value, f.units)))
+        .unwrap_or_default();
+    g.paragraphs.push(format!(
+        "Your weight is coming down{rate}. There is nothing you need to change: keep going with the habits that are working for you."
+    ));
+    if let (Some(s), Some(w)) = (f.slope, f.weight_kg) {
+        let max = t.max_rate(w);
+        if s.lower.unwrap_or(s.value) < -max {
+            g.paragraphs.push(format!(
+                "The pace may be faster than the usual safe limit of about {}. If it stays this fast for a few more weeks, please talk to the program staff.",
+                rate_words(max, f.units)
+            ));
+        }
+    }
+    g
+}
+
+fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
+    let mut g = empty(Phase::RestartLoss, "What to try next", floor);
+    g.show_plateaus = true;
+    let (Some(need), Some(imp), Some(slope), Some(w)) =
+        (f.intake_need, f.implied, f.slope, f.weight_kg)
+    else {
+        g.paragraphs.push(
+            "The records do not yet allow a reliable estimate of what it would take to restart a steady loss; more regular weigh-ins and food logs will help next month's report.".into(),
+        );
+        return g;
+    };
+    let target = t.target_loss_kg_per_week;
+    let max = t.max_rate(w);
+    // The loss rate if the true slope is at the fastest-loss end of its interval.
+    let rate_fast = target + (slope.value - slope.lower.unwrap_or(slope.value)).max(0.0);
+    if need < t.min_intake_change_kcal {
+        g.paragraphs.push(
+            "Your weight trend is already close to a steady loss; small, steady habits are enough."
+                .into(),
+        );
+        return g;
+    }
+    if rate_fast > max {
+        g.paragraphs.push(format!(
+            "The estimate of your recent weight trend is still too uncertain to suggest an amount safely: a change sized for a loss of {} could, at the fast end of the estimate, mean losing more than {}. A few more weeks of regular weigh-ins will narrow it.",
+            rate_words(target, f.units),
+            rate_words(max, f.units)
+        ));
+        return g;
+    }
+    let lower = imp.lower.unwrap_or(imp.value);
+    let room = lower - floor; // how much less is possible at the harmful bound
+    let mut dropped_intake = false;
+
+    // Eat less only.
+    let cut = fmt::round_to(need, KCAL_STEP);
+    if cut >= t.min_intake_change_kcal && lower - cut >= floor {
+        g.options.push(OptionView {
+            text: format!(
+                "Eat about {} a day less than now (about {} a day in all, going by your weight trend).",
+                fmt::kcal(cut),
+                fmt::kcal(fmt::round_to(imp.value - cut, KCAL_STEP))
+            ),
+            intake_cut_kcal: cut,
+            walk_minutes: 0.0,
+            intake_at_lower_bound: Some(lower - cut),
+            rate_at_fast_bound: Some(rate_fast),
+        });
+    } else {
+        dropped_intake = true;
+    }
+    // Walk more only.
+    let walk_all = walk_for(need, f).map(|m| fmt::ceil_to(m, MIN_STEP));
+    if let Some(m) = walk_all
+        && m >= t.min_walk_minutes
+        && m <= t.max_walk_minutes
+    {
+        g.options.push(OptionView {
+            text: format!(
+                "Walk about {} minutes more a day at an easy pace ({}).",
+                fmt::fixed(m, 0),
+                pace(f.units)
+            ),
+            intake_cut_kcal: 0.0,
+            walk_minutes: m,
+            intake_at_lower_bound: Some(lower),
+            rate_at_fast_bound: Some(rate_fast),
+        });
+    }
+    // Some of each: half the change from intake (never past the floor at the lower bound),
+    // the rest from walking.
+    let cut_mix = fmt::floor_to((need / 2.0).min(room), KCAL_STEP);
+    if cut_mix >= t.min_intake_change_kcal
+        && let Some(m) = walk_for(need - cut_mix, f).map(|m| fmt::ceil_to(m, MIN_STEP))
+        && m >= t.min_walk_minutes
+        && m <= t.max_walk_minutes
+    {
+        g.options.push(OptionView {
+            text: format!(
+                "Some of each: eat about {} a day less and walk about {} minutes more a day.",
+                fmt::kcal(cut_mix),
+                fmt::fixed(m, 0)
+            ),
+            intake_cut_kcal: cut_mix,
+            walk_minutes: m,
+            intake_at_lower_bound: Some(lower - cut_mix),
+            rate_at_fast_bound: Some(rate_fast),
+        });
+    }
+    if g.options.is_empty() {
+        g.paragraphs.push(format!(
+            "At the careful end of the estimates, any single change big enough to restart a loss of {} would take your intake below {} a day or need more than {} minutes of extra walking a day. A slower pace may suit you better; the program staff can help you find one.",
+            rate_words(target, f.units),
+            fmt::kcal(floor),
+            fmt::fixed(t.max_walk_minutes, 0)
+        ));
+        return g;
+    }
+    g.options_intro = format!(
+        "What it would take to get back to a steady loss of about {}{}",
+        rate_words(target, f.units),
+        if g.options.len() == 1 {
+            ":"
+        } else {
+            " (any one of these):"
+        }
+    );
+    let mut note = format!(
+        "{} from the same energy-balance model as the figures above. {} your intake at or above {} a day and your loss under {}, even at the careful end of the estimate.",
+        if g.options.len() == 1 {
+            "This comes"
+        } else {
+            "These come"
+        },
+        if g.options.len() == 1 {
+            "It keeps"
+        } else {
+            "Each one keeps"
+        },
+        fmt::kcal(floor),
+        rate_words(max, f.units)
+    );
+    if dropped_intake {
+        note.push_str(&format!(
+            " Eating less alone is not suggested, because at the careful end of the estimate it would take your intake below {} a day.",
+            fmt::kcal(floor)
+        ));
+    }
+    note.push_str(" Talk any change through with your program team.");
+    g.options_note = note;
+    g
+}
+
+#[cfg(test)]
+mod tests {
+    use super::TrendStatus::*;
+    use super::*;
+
+    fn st(status: TrendStatus) -> State {
+        State {
+            withdrawn: false,
+            clinical_flags: vec![],
+            bmi: Some(29.0),
+            change_percent: Some(-2.0),
+            target_percent: -5.0,
+            status,
+        }
+    }
+
+    /// The decision table, row by row: (state, expected phase).
+    #[test]
+    fn decision_table() {
+        use MaintainWhy::*;
+        let t = Thresholds::default();
+        let with = |f: &dyn Fn(&mut State), status| {
+            let mut s = st(status);
+            f(&mut s);
+            s
+        };
+        let cases: Vec<(&str, State, Phase)> = vec![
+            ("plateau, loss goal", st(Plateau), Phase::RestartLoss),
+            ("stable, loss goal", st(Stable), Phase::RestartLoss),
+            ("unclear, loss goal", st(Unclear), Phase::RestartLoss),
+            ("losing, loss goal", st(Losing), Phase::KeepGoing),
+            ("regaining", st(Regaining), Phase::Regain),
+            (
+                "regaining past target",
+                with(&|s| s.change_percent = Some(-8.0), Regaining),
+                Phase::Regain,
+            ),
+            (
+                "withdrawn beats everything",
+                with(
+                    &|s| {
+                        s.withdrawn = true;
+                        s.clinical_flags = vec!["fast_loss".into()];
+                    },
+                    Regaining,
+                ),
+                Phase::Withdrawn,
+            ),
+            (
+                "fast loss holds advice",
+                with(&|s| s.clinical_flags = vec!["fast_loss".into()], Losing),
+                Phase::Clinician,
+            ),
+            (
+                "low intake holds advice",
+                with(&|s| s.clinical_flags = vec!["low_intake".into()], Plateau),
+                Phase::Clinician,
+            ),
+            (
+                "medication review holds advice",
+                with(
+                    &|s| s.clinical_flags = vec!["medication_review".into()],
+                    Plateau,
+                ),
+                Phase::Clinician,
+            ),
+            (
+                "diabetes-range lab does not hold advice",
+                with(
+                    &|s| s.clinical_flags = vec!["lab_diabetes_range".into()],
+                    Plateau,
+                ),
+                Phase::RestartLoss,
+            ),
+            (
+                "BMI under 18.5 without a flag",
+                with(&|s| s.bmi = Some(18.2), Plateau),
+                Phase::Clinician,
+            ),
+            (
+                "BMI under 25, plateau",
+                with(&|s| s.bmi = Some(23.1), Plateau),
+                Phase::Maintain(BmiBelowCutoff),
+            ),
+            (
+                "BMI exactly 25 may still lose",
+                with(&|s| s.bmi = Some(25.0), Plateau),
+                Phase::RestartLoss,
+            ),
+            (
+                "target reached, plateau",
+                with(&|s| s.change_percent = Some(-7.2), Plateau),
+                Phase::Maintain(TargetReached),
+            ),
+            (
+                "target exactly reached",
+                with(&|s| s.change_percent = Some(-5.0), Losing),
+                Phase::Maintain(TargetReached),
+            ),
+            (
+                "target reached and BMI under 25",
+                with(
+                    &|s| {
+                        s.change_percent = Some(-9.3);
+                        s.bmi = Some(22.0);
+                    },
+                    Plateau,
+                ),
+                Phase::Maintain(TargetReached),
+            ),
+            (
+                "hold-weight target",
+                with(&|s| s.target_percent = 0.0, Plateau),
+                Phase::Maintain(NoLossTarget),
+            ),
+            ("too few weigh-ins", st(Insufficient), Phase::TooLittleData),
+            (
+                "too few weigh-ins past target",
+                with(&|s| s.change_percent = Some(-7.4), Insufficient),
+                Phase::Maintain(TargetReached),
+            ),
+            (
+                "no BMI",
+                with(&|s| s.bmi = None, Plateau),
+                Phase::TooLittleData,
+            ),
+        ];
+        for (name, state, want) in cases {
+            assert_eq!(decide(&state, &t), want, "{name}");
+        }
+    }
+
+    fn facts() -> Facts {
+        Facts {
+            units: UnitSystem::Metric,
+            sex: Sex::Female,
+            withdrew: None,
+            weight_kg: Some(80.0),
+            slope: Some(Est {
+                value: 0.0,
+                lower: Some(-0.15),
+                upper: Some(0.15),
+            }),
+            implied: Some(Est {
+                value: 2000.0,
+                lower: Some(1850.0),
+                upper: Some(2150.0),
+            }),
+            balance: Some(Est {
+                value: 0.0,
+                lower: Some(-150.0),
+                upper: Some(150.0),
+            }),
+            tdee: Some(2010.0),
+            intake_need: Some(560.0),
+            walk_need: Some(95.0),
+            weigh_ins_target: 3.0,
+            activity_target: 150.0,
+            lab_in_diabetes_range: false,
+            glucose_lowering: false,
+        }
+    }
+
+    #[test]
+    fn restart_options_are_rounded_and_safe_at_the_lower_bound() {
+        let t = Thresholds::default();
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &facts());
+        // Intake: 560 → 550 kcal; at the lower bound 1,850 − 550 = 1,300 ≥ 1,200.
+        assert_eq!(g.options[0].intake_cut_kcal, 550.0);
+        assert_eq!(g.options[0].intake_at_lower_bound, Some(1300.0));
+        assert!(g.options[0].text.contains("550 kcal a day less"));
+        assert!(g.options[0].text.contains("1,450 kcal a day in all"));
+        // Walking alone: 95 min > 60, not offered. Mix: 280 → 250 kcal, (560 − 250)/560 × 95
+        // = 52.6 → 55 min.
+        assert_eq!(g.options.len(), 2);
+        assert_eq!(g.options[1].intake_cut_kcal, 250.0);
+        assert_eq!(g.options[1].walk_minutes, 55.0);
+        assert!(g.options_note.contains("1,200 kcal"));
+        // Rate at the fast bound: 0.5 + 0.15 = 0.65 ≤ 0.8 (1 % of 80 kg).
+        assert_eq!(g.options[0].rate_at_fast_bound, Some(0.65));
+    }
+
+    #[test]
+    fn intake_option_is_dropped_when_the_lower_bound_crosses_the_floor() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.implied = Some(Est {
+            value: 1750.0,
+            lower: Some(1600.0),
+            upper: Some(1900.0),
+        });
+        // 1,600 − 550 = 1,050 < 1,200 (the point estimate, 1,200, would have passed).
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert!(g.options.iter().all(|o| o.intake_cut_kcal < 550.0));
+        for o in &g.options {
+            assert!(o.intake_at_lower_bound.unwrap() >= 1200.0, "{o:?}");
+        }
+        assert!(
+            g.options_note
+                .contains("Eating less alone is not suggested")
+        );
+    }
+
+    #[test]
+    fn an_uncertain_slope_gives_no_amounts() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.slope = Some(Est {
+            value: 0.0,
+            lower: Some(-0.4),
+            upper: Some(0.4),
+        });
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert!(g.options.is_empty());
+        assert!(g.paragraphs[0].contains("too uncertain"));
+    }
+
+    #[test]
+    fn regain_is_met_with_what_holds_the_weight_above_the_floor() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.balance = Some(Est {
+            value: 260.0,
+            lower: Some(100.0),
+            upper: Some(420.0),
+        });
+        let g = compose(Phase::Regain, &st(Regaining), &t, &f);
+        assert_eq!(g.options[0].intake_cut_kcal, 250.0);
+        assert!(g.options[0].text.contains("250 kcal a day less"));
+        // 250 × 95 / 560 = 42.4 → 45 min.
+        assert_eq!(g.options[1].walk_minutes, 45.0);
+        // Loss is still the goal (BMI 29, −2 % of −5 %): what comes next follows the options.
+        assert!(g.closing[0].contains("next month"));
+        // A surplus under 100 kcal: no amount.
+        f.balance = Some(Est {
+            value: 60.0,
+            lower: Some(-100.0),
+            upper: Some(220.0),
+        });
+        assert!(
+            compose(Phase::Regain, &st(Regaining), &t, &f)
+                .options
+                .is_empty()
+        );
+        // Near the floor at the lower bound: no eat-less option.
+        f.balance = Some(Est {
+            value: 700.0,
+            lower: Some(540.0),
+            upper: Some(860.0),
+        });
+        let g = compose(Phase::Regain, &st(Regaining), &t, &f);
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        assert!(g.paragraphs.iter().any(|p| p.contains("not suggested")));
+    }
+
+    #[test]
+    fn maintenance_gives_the_holding_intake_and_no_loss_option() {
+        let t = Thresholds::default();
+        let mut s = st(Losing);
+        s.bmi = Some(23.0);
+        let mut f = facts();
+        f.balance = Some(Est {
+            value: -400.0,
+            lower: Some(-560.0),
+            upper: Some(-240.0),
+        });
+        let g = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f);
+        assert!(g.options.is_empty());
+        let all = g.paragraphs.join(" ");
+        assert!(all.contains("about 2,000 kcal a day holds"), "{all}");
+        assert!(all.contains("about 200 kcal a day more"), "{all}");
+        assert!(!all.contains("less"), "{all}");
+    }
+
+    #[test]
+    fn withdrawn_and_clinician_phases_offer_nothing() {
+        let t = Thresholds::default();
+        for phase in [Phase::Withdrawn, Phase::Clinician, Phase::TooLittleData] {
+            let g = compose(phase, &st(Plateau), &t, &facts());
+            assert!(g.options.is_empty(), "{phase:?}");
+            assert!(!g.show_plateaus);
+        }
+    }
+}

@@ -1,0 +1,360 @@
+//! Guidance and the clinician follow-up list on the bundled sample: every participant's
+//! options follow the safety rules, and the follow-up list holds exactly the participants with
+//! a clinical flag while no group output mentions any of them.
+
+use crate::harness::{ProgramTest, repo_root};
+use clap::Parser;
+use cohortpress::report::guidance::{self, Phase, Thresholds};
+use cohortpress_metric_api::FlagSeverity;
+use std::collections::{BTreeMap, BTreeSet};
+
+const AS_OF: &str = "2026-12-01";
+
+/// For each usable sample participant: (state, phase, guidance, participant HTML).
+struct Sample {
+    plan: cohortpress::runner::RunPlan,
+    people: BTreeMap<
+        String,
+        (
+            guidance::State,
+            Phase,
+            guidance::GuidanceView,
+            cohortpress::report::ParticipantReportContext,
+        ),
+    >,
+}
+
+fn sample() -> Sample {
+    use cohortpress::cli::{Cli, Command};
+    let root = repo_root().join("sample-program");
+    let cli = Cli::try_parse_from([
+        "cohortpress",
+        "run",
+        root.to_str().unwrap(),
+        "--as-of",
+        AS_OF,
+    ])
+    .unwrap();
+    let Command::Run(args) = cli.command else {
+        panic!("not a run command")
+    };
+    let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    let plan = cohortpress::runner::plan_from_args(&args, today).unwrap_or_else(|(c, d)| {
+        panic!("plan: exit {c}: {d:?}");
+    });
+    let (dirs, _) = cohortpress::participant::discover(&plan.program);
+    let t = Thresholds::from_plan(&plan);
+    let mut people = BTreeMap::new();
+    for dir in &dirs {
+        let loaded = cohortpress::participant::load_participant(&plan.program, dir, plan.as_of);
+        let Some(data) = loaded.data else { continue };
+        let results = plan
+            .modules
+            .run(&plan.program.info, plan.period, plan.as_of, &data);
+        let state = guidance::state_of(&plan, &data, &results);
+        let phase = guidance::decide(&state, &t);
+        let g = guidance::build(&plan, &data, &results);
+        let ctx =
+            cohortpress::report::participant_context(&plan, &data, &results, &loaded.diagnostics)
+                .ctx;
+        people.insert(data.profile.id.clone(), (state, phase, g, ctx));
+    }
+    Sample { plan, people }
+}
+
+/// True when `text` holds a whole number of four or more digits without the separator
+/// (`1020 kcal`), ignoring dates and years in references.
+fn has_ungrouped_kcal(text: &str) -> bool {
+    let b = text.as_bytes();
+    let mut i = 0;
+    while i < b.len() {
+        if b[i].is_ascii_digit() && (i == 0 || !(b[i - 1].is_ascii_digit() || b[i - 1] == b',')) {
+            let mut j = i;
+            while j < b.len() && b[j].is_ascii_digit() {
+                j += 1;
+            }
+            if j - i >= 4 && text[j..].starts_with(" kcal") {
+                return true;
+            }
+            i = j;
+        } else {
+            i += 1;
+        }
+    }
+    false
+}
+
+#[test]
+fn every_sample_participants_options_follow_the_rules() {
+    let s = sample();
+    let t = Thresholds::from_plan(&s.plan);
+    assert!(s.people.len() >= 40, "{} participants", s.people.len());
+    let mut phases: BTreeMap<&str, usize> = BTreeMap::new();
+    let mut offered = 0;
+    for (id, (state, phase, g, ctx)) in &s.people {
+        *phases.entry(phase.code()).or_default() += 1;
+        assert_eq!(g.phase, phase.code(), "{id}");
+        let past_target = state
+            .change_percent
+            .is_some_and(|c| c <= state.target_percent);
+        let under_25 = state.bmi.is_some_and(|b| b < t.loss_bmi_at_least);
+        // No loss options under BMI 25 or past the target; none at all after withdrawal or
+        // with a flag that holds advice.
+        if past_target || under_25 {
+            assert!(!phase.allows_loss_options(), "{id}: {phase:?}");
+        }
+        if state.withdrawn {
+            assert_eq!(*phase, Phase::Withdrawn, "{id}");
+            assert!(g.options.is_empty(), "{id} withdrawn but offered options");
+        }
+        if state
+            .clinical_flags
+            .iter()
+            .any(|c| guidance::HOLDING_FLAGS.contains(&c.as_str()))
+        {
+            assert!(
+                g.options.is_empty(),
+                "{id}: options despite {:?}",
+                state.clinical_flags
+            );
+        }
+        if !matches!(phase, Phase::RestartLoss | Phase::Regain) {
+            assert!(g.options.is_empty(), "{id}: options in phase {phase:?}");
+        }
+        for o in &g.options {
+            offered += 1;
+            // No zero or token amounts.
+            assert!(
+                o.intake_cut_kcal > 0.0 || o.walk_minutes > 0.0,
+                "{id}: {o:?}"
+            );
+            assert!(
+                o.intake_cut_kcal == 0.0 || o.intake_cut_kcal >= t.min_intake_change_kcal,
+                "{id}: {o:?}"
+            );
+            assert!(
+                o.walk_minutes == 0.0
+                    || (o.walk_minutes >= t.min_walk_minutes
+                        && o.walk_minutes <= t.max_walk_minutes),
+                "{id}: {o:?}"
+            );
+            assert!(
+                !o.text.contains(" 0 kcal") && !o.text.contains(" 0 minutes"),
+                "{id}"
+            );
+            // The floor holds at the lower bound of the implied intake.
+            if let Some(l) = o.intake_at_lower_bound {
+                assert!(l >= g.floor_kcal, "{id}: {l} below {}: {o:?}", g.floor_kcal);
+            }
+            if o.intake_cut_kcal > 0.0 {
+                assert!(o.intake_at_lower_bound.is_some(), "{id}: unchecked {o:?}");
+            }
+            // The fastest rate holds at the fast end of the slope interval.
+            if let Some(r) = o.rate_at_fast_bound {
+                assert!(r <= t.max_loss_kg_per_week + 1e-9, "{id}: {o:?}");
+            }
+        }
+        // One number format on the page: no "1020 kcal" next to "1,020 kcal".
+        let json = serde_json::to_string(ctx).unwrap();
+        assert!(
+            !has_ungrouped_kcal(&json),
+            "{id}: ungrouped kcal in the report"
+        );
+        // Person-first BMI wording; no bare class label about the reader.
+        for kv in &ctx.summary {
+            if kv.label == "BMI" {
+                assert!(
+                    kv.value.contains("your BMI is in the range"),
+                    "{id}: {}",
+                    kv.value
+                );
+            }
+        }
+        // A page never says the options respect the floors next to one that does not.
+        if !g.options.is_empty() {
+            assert!(g.options_note.contains("keeps your intake") || g.phase == "regain");
+        }
+    }
+    // The sample covers the table: people past target or under BMI 25 are in maintenance,
+    // some restart a loss with options, some have left, some are for a clinician first.
+    for code in ["maintain", "restart_loss", "withdrawn", "clinician"] {
+        assert!(
+            phases.contains_key(code),
+            "no participant in {code}: {phases:?}"
+        );
+    }
+    assert!(offered > 0, "no option offered at all: {phases:?}");
+    // The participants the report once pushed to lose more (past target, healthy BMI) now get
+    // maintenance guidance.
+    for id in ["SG-035", "SG-014"] {
+        let (_, phase, g, _) = &s.people[id];
+        assert!(matches!(phase, Phase::Maintain(_)), "{id}: {phase:?}");
+        assert!(g.options.is_empty());
+    }
+}
+
+#[test]
+fn has_ungrouped_kcal_sees_only_bare_thousands() {
+    assert!(has_ungrouped_kcal("about 1020 kcal a day"));
+    assert!(!has_ungrouped_kcal(
+        "about 1,020 kcal a day (Archer et al. 2013)"
+    ));
+    assert!(!has_ungrouped_kcal("about 950 kcal"));
+}
+
+fn mode(p: &std::path::Path) -> u32 {
+    use std::os::unix::fs::PermissionsExt;
+    std::fs::metadata(p).unwrap().permissions().mode() & 0o777
+}
+
+#[test]
+fn followup_list_holds_exactly_the_flagged_participants_and_stays_private() {
+    let prog = ProgramTest::sample();
+    let yaml = prog.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Program nurse, Kiln Row\"\n"),
+    )
+    .unwrap();
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--group-readable"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let reports = prog.dir.join("reports");
+    let folder = reports.join("followup");
+    assert_eq!(mode(&folder), 0o700, "follow-up folder must be owner-only");
+    for f in ["followup.html", "followup.pdf", "followup.csv"] {
+        assert_eq!(mode(&folder.join(f)), 0o600, "{f}");
+    }
+    // The group outputs stay group-readable as asked.
+    assert_eq!(mode(&reports.join("group/program.html")), 0o640);
+
+    // Who should be listed, computed through the library from the same inputs.
+    let s = sample();
+    let mut flagged: BTreeMap<String, BTreeSet<String>> = BTreeMap::new();
+    for (id, (state, _, _, _)) in &s.people {
+        if !state.clinical_flags.is_empty() {
+            flagged.insert(id.clone(), state.clinical_flags.iter().cloned().collect());
+        }
+    }
+    assert!(
+        !flagged.is_empty(),
+        "the sample has clinically flagged participants"
+    );
+    let mut r = csv::Reader::from_path(folder.join("followup.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let col = |n: &str| header.iter().position(|h| h == n).unwrap();
+    let mut listed: BTreeMap<String, BTreeSet<String>> = BTreeMap::new();
+    for rec in r.records() {
+        let rec = rec.unwrap();
+        listed
+            .entry(rec[col("participant_id")].to_string())
+            .or_default()
+            .insert(rec[col("flag")].to_string());
+        assert!(matches!(&rec[col("status")], "new" | "continuing"));
+        assert!(!rec[col("reason")].is_empty());
+        assert!(!rec[col("dates")].is_empty());
+    }
+    assert_eq!(listed, flagged);
+
+    // "New" or "continuing", checked for one listed participant against the flags the modules
+    // raise for August.
+    let (id, codes) = listed.iter().next().unwrap();
+    let data = {
+        let (dirs, _) = cohortpress::participant::discover(&s.plan.program);
+        let dir = dirs.iter().find(|d| &d.id == id).unwrap();
+        cohortpress::participant::load_participant(&s.plan.program, dir, s.plan.as_of)
+            .data
+            .unwrap()
+    };
+    let aug = cohortpress_metric_api::Period {
+        from: "2026-08-01".parse().unwrap(),
+        to: "2026-08-31".parse().unwrap(),
+    };
+    let before: BTreeSet<String> = s
+        .plan
+        .modules
+        .run(&s.plan.program.info, aug, s.plan.as_of, &data)
+        .outputs
+        .iter()
+        .flat_map(|(_, o)| o.flags.iter())
+        .filter(|f| f.severity == FlagSeverity::Clinical)
+        .map(|f| f.code.clone())
+        .collect();
+    let mut r = csv::Reader::from_path(folder.join("followup.csv")).unwrap();
+    for rec in r.records() {
+        let rec = rec.unwrap();
+        if &rec[col("participant_id")] == id && codes.contains(&rec[col("flag")]) {
+            let want = if before.contains(&rec[col("flag")]) {
+                "continuing"
+            } else {
+                "new"
+            };
+            assert_eq!(&rec[col("status")], want, "{id} {}", &rec[col("flag")]);
+        }
+    }
+
+    // The HTML names the recipient and every listed participant.
+    let html = std::fs::read_to_string(folder.join("followup.html")).unwrap();
+    assert!(html.contains("Program nurse, Kiln Row"));
+    for id in listed.keys() {
+        assert!(
+            html.contains(id.as_str()),
+            "{id} missing from the HTML list"
+        );
+    }
+
+    // No group output mentions any listed participant, by id or by name.
+    let names: Vec<String> = listed
+        .keys()
+        .map(|id| s.people[id].3.participant.display_name.clone())
+        .filter(|n| !n.starts_with("SG-"))
+        .collect();
+    for rel in ["group/program.html", "metrics/group.json"] {
+        let g = std::fs::read_to_string(reports.join(rel)).unwrap();
+        for id in listed.keys() {
+            assert!(!g.contains(id.as_str()), "{rel} names {id}");
+        }
+        for n in &names {
+            assert!(!g.contains(n.as_str()), "{rel} names {n}");
+        }
+        assert!(
+            !g.contains("followup"),
+            "{rel} refers to the follow-up list"
+        );
+    }
+}
+
+#[test]
+fn context_md_documents_exactly_the_followup_fields() {
+    use crate::reports::{assert_same_paths, context_paths, documented_paths};
+    use cohortpress::report::followup::{FollowupItem, FollowupRecord, context};
+    let s = sample();
+    let record = FollowupRecord {
+        id: "SG-010".into(),
+        name: Some("A Name".into()),
+        weight_kg: Some(70.0),
+        bmi: Some(23.5),
+        change_percent: Some(-4.0),
+        rate_kg_per_week: Some(-0.05),
+        logged_intake_kcal_per_day: Some(1476.0),
+        last_weigh_in: Some("2026-09-30".into()),
+        left_program: None,
+        items: vec![FollowupItem {
+            code: "low_intake".into(),
+            reason: "Logged intake below the usual floor".into(),
+            details: "Logged intake averaged about 1,476 kcal a day".into(),
+            dates: "2026-09-01 to 2026-09-30".into(),
+            new: true,
+        }],
+    };
+    let ctx = context(&s.plan, std::slice::from_ref(&record));
+    assert_eq!(ctx.with_new, 1);
+    assert_eq!(ctx.table.rows[0][2], "new");
+    assert_eq!(ctx.table.rows[0][5], "1 Sep 2026 to 30 Sep 2026");
+    let doc = std::fs::read_to_string(repo_root().join("report-templates/CONTEXT.md")).unwrap();
+    assert_same_paths(
+        "followup.html.hbs",
+        &context_paths(std::slice::from_ref(&ctx)),
+        &documented_paths(&doc, "followup.html.hbs"),
+    );
+}
