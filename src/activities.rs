@@ -48,6 +48,12 @@ const fn a(
 /// Med Sci Sports Exerc 43:1575), as listed in REFERENCE.md §2.2 [C].
 static TABLE: &[ActivityDef] = &[
     a(
+        "aerobics_general",
+        "aerobic exercise class, general",
+        7.3,
+        "03015",
+    ),
+    a(
         "aerobics_high_impact",
         "aerobic exercise class, high impact",
         7.3,
@@ -142,15 +148,47 @@ static TABLE: &[ActivityDef] = &[
         3.8,
         "08160",
     ),
+    a(
+        "running_10mph",
+        "running, 10 mph (6 min/mile)",
+        14.5,
+        "12120",
+    ),
     a("running_4mph", "running, 4 mph (15 min/mile)", 6.0, "12029"),
     a("running_5mph", "running, 5 mph (12 min/mile)", 8.3, "12030"),
+    a(
+        "running_6_7mph",
+        "running, 6.7 mph (9 min/mile)",
+        10.5,
+        "12060",
+    ),
     a("running_6mph", "running, 6 mph (10 min/mile)", 9.8, "12050"),
+    a(
+        "running_7_5mph",
+        "running, 7.5 mph (8 min/mile)",
+        11.8,
+        "12080",
+    ),
     a(
         "running_7mph",
         "running, 7 mph (8.5 min/mile)",
         11.0,
         "12070",
     ),
+    a(
+        "running_8mph",
+        "running, 8 mph (7.5 min/mile)",
+        11.8,
+        "12090",
+    ),
+    a(
+        "running_9mph",
+        "running, 9 mph (6.5 min/mile)",
+        12.8,
+        "12110",
+    ),
+    // From memory (not in the confirmed excerpt of the 2011 tables): 12150 running, general, 8.0.
+    a("running_general", "running, general", 8.0, "12150"),
     a("stair_climbing", "climbing stairs, slow pace", 4.0, "17133"),
     a(
         "stair_climbing_fast",
@@ -226,6 +264,7 @@ static TABLE: &[ActivityDef] = &[
         7.0,
         "17230",
     ),
+    a("walking_5mph", "walking, 5.0 mph, level", 8.3, "17231"),
     a(
         "walking_brisk_3_5mph",
         "walking, 3.5 mph, level, brisk, for exercise",
@@ -257,6 +296,15 @@ pub fn lookup(code: &str) -> Option<&'static ActivityDef> {
     TABLE.iter().find(|d| d.code.eq_ignore_ascii_case(code))
 }
 
+/// The activity with Compendium code `code` (`17190`) or our code (`walking_3mph`).
+pub fn by_compendium_or_code(code: &str) -> Option<&'static ActivityDef> {
+    let code = code.trim();
+    TABLE
+        .iter()
+        .find(|d| d.compendium_code == code)
+        .or_else(|| lookup(code))
+}
+
 /// Every activity in the table, sorted by code.
 pub fn all() -> &'static [ActivityDef] {
     TABLE
@@ -274,6 +322,400 @@ pub fn common_codes() -> &'static [&'static str] {
         "yoga_hatha",
         "gardening",
     ]
+}
+
+/// What an activity label was read as.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Resolved {
+    /// MET value.
+    pub met: f64,
+    /// Where the MET value comes from (`Compendium 2011 code 17190`, or the program's table).
+    pub source: String,
+}
+
+/// The program's own activity labels (`activities:` in program.yaml), normalised.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct LocalTable {
+    entries: Vec<(String, LocalEntry)>,
+}
+
+/// What a local label stands for.
+#[derive(Debug, Clone, PartialEq)]
+pub enum LocalEntry {
+    /// An activity of the tool's table.
+    Compendium(&'static ActivityDef),
+    /// A MET value of the program's own.
+    Met(f64),
+}
+
+impl LocalTable {
+    /// Adds a label.
+    pub fn insert(&mut self, label: &str, entry: LocalEntry) {
+        self.entries.push((normalise(label), entry));
+    }
+
+    fn get(&self, norm: &str) -> Option<&LocalEntry> {
+        self.entries.iter().find(|(l, _)| l == norm).map(|(_, e)| e)
+    }
+
+    /// The labels, normalised.
+    fn labels(&self) -> impl Iterator<Item = &str> {
+        self.entries.iter().map(|(l, _)| l.as_str())
+    }
+}
+
+/// A label in one canonical spelling: lowercase, every run of characters other than letters,
+/// digits and `.` (or a `.` not between digits) as one space; `km/h` and `kph` as `kmh`.
+pub fn normalise(label: &str) -> String {
+    let lower = label
+        .trim()
+        .to_lowercase()
+        .replace("km/h", "kmh")
+        .replace("mi/h", "mph");
+    let chars: Vec<char> = lower.chars().collect();
+    let mut out = String::with_capacity(lower.len());
+    for (i, &c) in chars.iter().enumerate() {
+        // `3.5`, `3,5`, and our codes' `3_5` are decimal numbers.
+        let decimal_point = matches!(c, '.' | ',' | '_')
+            && i > 0
+            && chars[i - 1].is_ascii_digit()
+            && chars.get(i + 1).is_some_and(|n| n.is_ascii_digit());
+        if c.is_alphanumeric() || decimal_point {
+            // A number written against its unit (`3.5mph`) is split from it.
+            if let Some(&p) = chars.get(i.wrapping_sub(1))
+                && i > 0
+                && (p.is_ascii_digit() != c.is_ascii_digit())
+                && !matches!(c, '.' | ',' | '_')
+                && !matches!(p, '.' | ',' | '_')
+                && !out.ends_with(' ')
+            {
+                out.push(' ');
+            }
+            out.push(if matches!(c, ',' | '_') { '.' } else { c });
+        } else if !out.is_empty() && !out.ends_with(' ') {
+            out.push(' ');
+        }
+    }
+    out.trim_end().replace("kph", "kmh")
+}
+
+/// Kilometres per mile (international mile, exactly 1609.344 m).
+const KM_PER_MILE: f64 = 1.609_344;
+
+/// Resolves an activity label: the program's table first, then our codes, then the natural
+/// labels people and devices write (activity with a speed in mph or km/h, or an intensity, in
+/// any case, spacing and punctuation: `brisk walk`, `Walking 3.5 mph`, `cycling, moderate`,
+/// `Strength training`).
+pub fn resolve(label: &str, local: &LocalTable) -> Option<Resolved> {
+    let norm = normalise(label);
+    let from_def = |d: &ActivityDef| Resolved {
+        met: d.met,
+        source: d.met_source(),
+    };
+    if let Some(e) = local.get(&norm) {
+        return Some(match e {
+            LocalEntry::Compendium(d) => from_def(d),
+            LocalEntry::Met(m) => Resolved {
+                met: *m,
+                source: "program.yaml activities table".into(),
+            },
+        });
+    }
+    lookup(label)
+        .or_else(|| lookup(&norm.replace(' ', "_")))
+        .or_else(|| recognise(&norm))
+        .map(from_def)
+}
+
+/// Reads a natural label (already [`normalise`]d) as an activity of the table.
+pub fn recognise(norm: &str) -> Option<&'static ActivityDef> {
+    let words: Vec<&str> = norm.split(' ').collect();
+    let has = |w: &[&str]| words.iter().any(|x| w.contains(x));
+    let starts = |p: &[&str]| words.iter().any(|x| p.iter().any(|p| x.starts_with(p)));
+    // A speed: a number followed by mph or km/h (converted to mph).
+    let mut mph = None;
+    for pair in words.windows(2) {
+        if let Ok(v) = pair[0].parse::<f64>() {
+            match pair[1] {
+                "mph" | "mi" | "miles" => mph = Some(v),
+                "kmh" | "km" => mph = Some(v / KM_PER_MILE),
+                _ => {}
+            }
+        }
+    }
+    enum Effort {
+        Unsaid,
+        VerySlow,
+        Slow,
+        Leisure,
+        Light,
+        Moderate,
+        Brisk,
+        VeryBrisk,
+        Vigorous,
+    }
+    let very = has(&["very"]);
+    let effort = if has(&["stroll", "strolling"]) || very && has(&["slow"]) {
+        Effort::VerySlow
+    } else if very && has(&["brisk", "fast"]) {
+        Effort::VeryBrisk
+    } else if has(&[
+        "vigorous",
+        "vigorously",
+        "hard",
+        "intense",
+        "high",
+        "fast",
+        "heavy",
+        "power",
+        "race",
+        "racing",
+    ]) {
+        Effort::Vigorous
+    } else if has(&["brisk", "briskly", "quick"]) {
+        Effort::Brisk
+    } else if has(&["moderate", "moderately", "medium", "normal", "average"]) {
+        Effort::Moderate
+    } else if has(&[
+        "leisure",
+        "leisurely",
+        "pleasure",
+        "casual",
+        "commute",
+        "commuting",
+    ]) {
+        Effort::Leisure
+    } else if has(&["slow", "slowly"]) {
+        Effort::Slow
+    } else if has(&["light", "easy", "gentle", "low"]) {
+        Effort::Light
+    } else {
+        Effort::Unsaid
+    };
+    let code = if starts(&["water aerobic", "aqua"])
+        || has(&["aquafit", "aquarobics"])
+        || (has(&["water", "aqua"]) && starts(&["aerobic"]))
+    {
+        "water_aerobics"
+    } else if has(&["dog"]) && starts(&["walk"]) {
+        "walking_dog"
+    } else if starts(&["stair", "steps"]) && !has(&["machine"]) || has(&["stairmaster", "stairs"]) {
+        match effort {
+            Effort::Vigorous | Effort::Brisk | Effort::VeryBrisk => "stair_climbing_fast",
+            _ => "stair_climbing",
+        }
+    } else if starts(&["walk"]) {
+        match mph {
+            Some(v) if v < 2.0 => "walking_slow",
+            Some(v) if v < 2.5 => "walking_2mph",
+            Some(v) if v < 2.8 => "walking_2_5mph",
+            Some(v) if v < 3.3 => "walking_3mph",
+            Some(v) if v < 3.8 => "walking_brisk_3_5mph",
+            Some(v) if v < 4.3 => "walking_very_brisk_4mph",
+            Some(v) if v < 4.8 => "walking_4_5mph",
+            Some(v) if v <= 6.0 => "walking_5mph",
+            Some(_) => return None,
+            None => match effort {
+                Effort::VerySlow => "walking_slow",
+                Effort::Slow | Effort::Light => "walking_2mph",
+                Effort::Leisure => "walking_for_pleasure",
+                Effort::Unsaid | Effort::Moderate => "walking_3mph",
+                Effort::Brisk => "walking_brisk_3_5mph",
+                Effort::VeryBrisk | Effort::Vigorous => "walking_very_brisk_4mph",
+            },
+        }
+    } else if starts(&["jog"]) && mph.is_none() {
+        "jogging"
+    } else if starts(&["run", "jog", "treadmill"]) {
+        match mph {
+            Some(v) if v < 3.5 => return None,
+            Some(v) if v < 4.5 => "running_4mph",
+            Some(v) if v < 5.5 => "running_5mph",
+            Some(v) if v < 6.35 => "running_6mph",
+            Some(v) if v < 6.85 => "running_6_7mph",
+            Some(v) if v < 7.25 => "running_7mph",
+            Some(v) if v < 7.75 => "running_7_5mph",
+            Some(v) if v < 8.5 => "running_8mph",
+            Some(v) if v < 9.5 => "running_9mph",
+            Some(v) if v <= 10.5 => "running_10mph",
+            Some(_) => return None,
+            None => match effort {
+                Effort::Slow | Effort::Light | Effort::Leisure | Effort::VerySlow => "jogging",
+                _ => "running_general",
+            },
+        }
+    } else if starts(&["cycl", "bik", "bicycl", "spin"]) {
+        if has(&[
+            "stationary",
+            "indoor",
+            "spinning",
+            "spin",
+            "exercise",
+            "static",
+            "trainer",
+        ]) {
+            "cycling_stationary"
+        } else {
+            match mph {
+                Some(v) if v < 10.0 => "cycling_leisure",
+                Some(v) if v < 12.0 => "cycling_10_12mph",
+                Some(v) if v < 14.0 => "cycling_12_14mph",
+                Some(v) if v < 16.0 => "cycling_14_16mph",
+                Some(_) => return None,
+                None => match effort {
+                    Effort::Unsaid => "cycling_general",
+                    Effort::VerySlow | Effort::Slow | Effort::Leisure => "cycling_leisure",
+                    Effort::Light => "cycling_10_12mph",
+                    Effort::Moderate => "cycling_12_14mph",
+                    Effort::Brisk | Effort::VeryBrisk | Effort::Vigorous => "cycling_14_16mph",
+                },
+            }
+        }
+    } else if starts(&["swim"]) {
+        if has(&["breaststroke", "breast"]) {
+            "swimming_breaststroke"
+        } else if has(&["laps", "lap", "lengths", "freestyle", "crawl"])
+            || !matches!(
+                effort,
+                Effort::Unsaid | Effort::Leisure | Effort::Slow | Effort::VerySlow | Effort::Light
+            )
+        {
+            match effort {
+                Effort::Vigorous | Effort::VeryBrisk | Effort::Brisk => "swimming_laps_vigorous",
+                _ => "swimming_laps_moderate",
+            }
+        } else {
+            "swimming_leisure"
+        }
+    } else if starts(&[
+        "strength",
+        "weight",
+        "resistance",
+        "lifting",
+        "weightlifting",
+        "gym",
+    ]) || has(&["weights"])
+    {
+        match effort {
+            Effort::Vigorous | Effort::VeryBrisk => "strength_training_vigorous",
+            _ => "strength_training",
+        }
+    } else if starts(&["yoga"]) {
+        if has(&["power", "vinyasa", "ashtanga"]) {
+            "yoga_power"
+        } else {
+            "yoga_hatha"
+        }
+    } else if starts(&["pilates"]) {
+        "pilates"
+    } else if has(&["tai", "taichi", "qigong", "qi"])
+        && (has(&["chi", "taichi"]) || has(&["gong", "qigong"]))
+    {
+        "tai_chi"
+    } else if starts(&["elliptical", "crosstrainer"]) || has(&["cross"]) && has(&["trainer"]) {
+        "elliptical_moderate"
+    } else if starts(&["aerobic"]) {
+        match effort {
+            Effort::Vigorous => "aerobics_high_impact",
+            Effort::Light | Effort::Slow | Effort::Leisure => "aerobics_low_impact",
+            _ => "aerobics_general",
+        }
+    } else if starts(&["calisthenic", "bodyweight"]) {
+        match effort {
+            Effort::Vigorous | Effort::Brisk | Effort::VeryBrisk => "calisthenics_vigorous",
+            _ => "calisthenics_moderate",
+        }
+    } else if starts(&["danc"]) {
+        "dancing"
+    } else if starts(&["golf"]) {
+        "golf"
+    } else if starts(&["tennis"]) {
+        "tennis"
+    } else if starts(&["garden", "weeding"]) {
+        "gardening"
+    } else if starts(&["mow"]) {
+        "mowing_lawn"
+    } else if starts(&["rak"]) {
+        "raking"
+    } else if starts(&["vacuum", "hoover"]) {
+        "vacuuming"
+    } else if starts(&["housework", "cleaning", "chores", "tidying"]) {
+        match effort {
+            Effort::Light | Effort::Slow | Effort::Leisure => "housework_light",
+            _ => "housework_moderate",
+        }
+    } else {
+        return None;
+    };
+    lookup(code)
+}
+
+/// Labels the recognition reads, offered as suggestions (each resolves; a test checks).
+pub const NATURAL_LABELS: &[&str] = &[
+    "walking",
+    "brisk walk",
+    "walking 3.5 mph",
+    "walking 5 km/h",
+    "slow walk",
+    "dog walk",
+    "running",
+    "running 6 mph",
+    "jogging",
+    "cycling",
+    "cycling moderate",
+    "stationary bike",
+    "swimming",
+    "swimming laps",
+    "strength training",
+    "yoga",
+    "pilates",
+    "dancing",
+    "gardening",
+    "housework",
+    "elliptical",
+    "aerobics",
+    "water aerobics",
+    "stair climbing",
+    "tennis",
+    "golf",
+    "tai chi",
+];
+
+/// Up to `n` known labels nearest to `label` (edit distance between normalised labels), for
+/// "did you mean" hints: the program's own labels and [`NATURAL_LABELS`].
+pub fn suggestions(label: &str, local: &LocalTable, n: usize) -> Vec<String> {
+    let norm = normalise(label);
+    let mut scored: Vec<(usize, String)> = local
+        .labels()
+        .map(str::to_string)
+        .chain(NATURAL_LABELS.iter().map(|l| l.to_string()))
+        .map(|k| {
+            // A label the query begins is near (`zumba` → `zumba gold`).
+            let prefix: String = k.chars().take(norm.chars().count()).collect();
+            let d = edit_distance(&norm, &k).min(edit_distance(&norm, &prefix) + 1);
+            (d, k)
+        })
+        .collect();
+    scored.sort();
+    scored.dedup_by(|a, b| a.1 == b.1);
+    scored.into_iter().take(n).map(|(_, k)| k).collect()
+}
+
+/// Levenshtein distance over characters.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    let mut cur = vec![0; b.len() + 1];
+    for (i, ca) in a.chars().enumerate() {
+        cur[0] = i + 1;
+        for (j, &cb) in b.iter().enumerate() {
+            cur[j + 1] = (prev[j] + usize::from(ca != cb))
+                .min(prev[j + 1] + 1)
+                .min(cur[j] + 1);
+        }
+        std::mem::swap(&mut prev, &mut cur);
+    }
+    prev[b.len()]
 }
 
 #[cfg(test)]
@@ -307,6 +749,73 @@ mod tests {
         assert_eq!(lookup("swimming_laps_moderate").unwrap().met, 5.8);
         assert_eq!(lookup("yoga_hatha").unwrap().met, 2.5);
         assert_eq!(lookup("cycling_leisure").unwrap().compendium_code, "01010");
+    }
+
+    fn code_of(label: &str) -> Option<&'static str> {
+        recognise(&normalise(label)).map(|d| d.code)
+    }
+
+    #[test]
+    fn natural_labels_are_recognised() {
+        for (label, code) in [
+            ("brisk walk", "walking_brisk_3_5mph"),
+            ("Walking 3.5 mph", "walking_brisk_3_5mph"),
+            ("walking, 3.5mph", "walking_brisk_3_5mph"),
+            ("WALKING-3MPH", "walking_3mph"),
+            ("Walking-Brisk-3_5mph", "walking_brisk_3_5mph"),
+            // 5 km/h = 3.11 mph (1 mile = 1.609344 km): the 2.8–3.2 mph entry.
+            ("walk 5 km/h", "walking_3mph"),
+            ("Walking (6,5 kph)", "walking_very_brisk_4mph"),
+            ("walking", "walking_3mph"),
+            ("Cycling, moderate", "cycling_12_14mph"),
+            ("bike ride 13 mph", "cycling_12_14mph"),
+            ("cycling", "cycling_general"),
+            ("Spin class", "cycling_stationary"),
+            ("Strength training", "strength_training"),
+            ("weight lifting (heavy)", "strength_training_vigorous"),
+            ("running 6 mph", "running_6mph"),
+            ("Run 10 km/h", "running_6mph"),
+            ("easy jog", "jogging"),
+            ("swim laps - vigorous", "swimming_laps_vigorous"),
+            ("Swimming", "swimming_leisure"),
+            ("Power yoga", "yoga_power"),
+            ("Tai Chi", "tai_chi"),
+            ("dog walk", "walking_dog"),
+            ("Water aerobics", "water_aerobics"),
+        ] {
+            assert_eq!(code_of(label), Some(code), "{label}");
+        }
+        for label in ["zumba-ish", "walking 9 mph", "hiking", "", "sleep"] {
+            assert_eq!(code_of(label), None, "{label}");
+        }
+        for label in NATURAL_LABELS {
+            assert!(resolve(label, &LocalTable::default()).is_some(), "{label}");
+        }
+    }
+
+    #[test]
+    fn the_program_table_comes_first_and_gives_its_source() {
+        let mut local = LocalTable::default();
+        local.insert("Zumba Gold", LocalEntry::Met(5.5));
+        local.insert(
+            "walk",
+            LocalEntry::Compendium(by_compendium_or_code("17200").unwrap()),
+        );
+        assert_eq!(
+            resolve("zumba gold", &local),
+            Some(Resolved {
+                met: 5.5,
+                source: "program.yaml activities table".into()
+            })
+        );
+        // Ainsworth et al. 2011: 17200 walking 3.5 mph, brisk = 4.3 MET.
+        assert_eq!(resolve("Walk", &local).unwrap().met, 4.3);
+        assert_eq!(resolve("walk", &LocalTable::default()).unwrap().met, 3.5);
+        assert_eq!(
+            suggestions("zumba", &local, 1),
+            vec!["zumba gold".to_string()]
+        );
+        assert!(suggestions("wlaking", &local, 3).contains(&"walking".to_string()));
     }
 
     #[test]

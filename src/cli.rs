@@ -24,6 +24,13 @@ pub enum Command {
         /// The day treated as today: data dated after it are future data (default: today).
         #[arg(long, value_name = "YYYY-MM-DD")]
         as_of: Option<NaiveDate>,
+        /// `text` (a summary by kind, then the details) or `json` (one object per line for
+        /// each diagnostic and each note on how a file was read).
+        #[arg(long, value_enum, default_value = "text")]
+        format: CheckFormat,
+        /// List every diagnostic one by one, and the participants with nothing to report.
+        #[arg(long)]
+        verbose: bool,
     },
     /// Compute every metric and write the reports, tidy metrics and manifest.
     Run(RunArgs),
@@ -41,6 +48,12 @@ pub enum Command {
         #[command(subcommand)]
         action: TemplatesAction,
     },
+    /// Import participant data from other formats.
+    Import {
+        /// The format to import.
+        #[command(subcommand)]
+        format: ImportFormat,
+    },
     /// Generate a fictional demo program (for trying the tool and for benchmarks).
     DemoProgram {
         /// Folder to write (must be empty, absent, or a previous demo program).
@@ -55,6 +68,35 @@ pub enum Command {
         #[arg(long)]
         no_defects: bool,
     },
+}
+
+/// `import` formats.
+#[derive(Debug, Subcommand)]
+pub enum ImportFormat {
+    /// HL7 FHIR R4 Patient and Observation resources (Bulk Data NDJSON, Bundle or single
+    /// resources in JSON): body weight, height, waist, HbA1c, fasting glucose, blood pressure.
+    Fhir {
+        /// FHIR files to read.
+        #[arg(required = true)]
+        files: Vec<PathBuf>,
+        /// The program folder to write participant folders into (existing participant
+        /// folders are never changed).
+        #[arg(long, value_name = "PROGRAM")]
+        out: PathBuf,
+        /// CSV file with columns `fhir_id,participant_id` mapping FHIR patient ids to
+        /// participant ids (patients not listed are left out).
+        #[arg(long, value_name = "MAP.csv")]
+        ids: Option<PathBuf>,
+    },
+}
+
+/// Output of `check`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CheckFormat {
+    /// For people.
+    Text,
+    /// For scripts: JSON Lines.
+    Json,
 }
 
 /// `templates` actions.

@@ -9,7 +9,8 @@ pub const WARNINGS: i32 = 1;
 pub const USAGE: i32 = 2;
 /// `program.yaml` (or the program folder itself) is invalid; nothing was computed.
 pub const PROGRAM_INVALID: i32 = 3;
-/// Some participants had errors and were left out; every other participant was processed.
+/// Some inputs had errors: a participant whose profile is unusable, or a file that could not be
+/// used, was left out; everything else was processed (participants without the lost file).
 pub const PARTICIPANT_ERRORS: i32 = 4;
 /// A metric module (built-in or external) failed for some participants; their other
 /// modules' results and reports were still written.
@@ -70,7 +71,7 @@ pub const TABLE: &[(i32, &str)] = &[
     ),
     (
         PARTICIPANT_ERRORS,
-        "some participants had errors and were left out; the others were processed",
+        "some inputs had errors: a participant (unusable profile) or a file was left out; the rest was processed",
     ),
     (
         MODULE_FAILED,

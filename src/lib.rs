@@ -24,6 +24,7 @@ pub mod demo;
 pub mod diag;
 pub mod exit_code;
 pub mod group;
+pub mod import;
 pub mod limits;
 pub mod modules;
 pub mod output;

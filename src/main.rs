@@ -43,11 +43,20 @@ fn main() -> ExitCode {
 fn dispatch(cli: Cli) -> i32 {
     debug_panic_hook();
     match cli.command {
-        Command::Check { program, as_of } => {
+        Command::Check {
+            program,
+            as_of,
+            format,
+            verbose,
+        } => {
             init_logging(false, LogFormat::Text);
             let as_of = as_of.unwrap_or_else(today);
             let stdout = std::io::stdout();
-            cohortpress::check::run_check(&program, as_of, &mut stdout.lock())
+            let opts = cohortpress::check::CheckOptions {
+                json: format == cohortpress::cli::CheckFormat::Json,
+                verbose,
+            };
+            cohortpress::check::run_check_with(&program, as_of, &opts, &mut stdout.lock())
         }
         Command::Run(args) => {
             init_logging(args.quiet, args.log_format);
@@ -57,6 +66,9 @@ fn dispatch(cli: Cli) -> i32 {
             init_logging(args.quiet, args.log_format);
             cohortpress::shard::merge_command(&args)
         }
+        Command::Import {
+            format: cohortpress::cli::ImportFormat::Fhir { files, out, ids },
+        } => cohortpress::import::fhir::import_command(&files, &out, ids.as_deref()),
         Command::Modules { program } => cohortpress::runner::modules_command(program.as_deref()),
         Command::Templates {
             action: TemplatesAction::Dump { dir },

@@ -725,15 +725,32 @@ fn tally(
             rows.push(s.to_summary());
         }
     }
+    let reported: std::collections::BTreeSet<&str> = records
+        .iter()
+        .filter(|r| r.summary.is_some())
+        .map(|r| r.id.as_str())
+        .collect();
     for d in &all_diags {
         match d.severity {
-            // Any input error leaves its participant out (the others go on).
-            Severity::Error => tracing::warn!(
-                "{}",
-                d.to_string()
-                    .replacen("error: ", "participant left out: ", 1)
-                    .replace('\n', " |")
-            ),
+            // An error in the profile leaves its participant out; an error in another file
+            // leaves that file out (the participant is reported without it).
+            Severity::Error => {
+                let left_out = d
+                    .participant
+                    .as_deref()
+                    .is_none_or(|p| !reported.contains(p));
+                let what = if left_out {
+                    "participant left out: "
+                } else {
+                    "file not used: "
+                };
+                tracing::warn!(
+                    "{}",
+                    d.to_string()
+                        .replacen("error: ", what, 1)
+                        .replace('\n', " |")
+                )
+            }
             Severity::Warning => tracing::debug!("{}", d.to_string().replace('\n', " |")),
         }
     }

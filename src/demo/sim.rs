@@ -107,7 +107,7 @@ pub const ROW_DEFECTS: [Defect; 7] = [
 ];
 
 /// The misspelt activity code planted by [`Defect::UnknownActivity`].
-pub const UNKNOWN_ACTIVITY: &str = "walkng_3mph";
+pub const UNKNOWN_ACTIVITY: &str = "zumba_gold";
 
 /// Column order of a participant's intake.csv.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

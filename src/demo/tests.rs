@@ -697,6 +697,8 @@ fn a_larger_cohort_scales() {
 fn check_reports_the_planted_defects_and_nothing_else() {
     // The sample is clean apart from the planted defects: the checker finds one problem per
     // defect, in the file the README names, and every participant but SG-049 stays usable.
+    // The duplicated intake row of SG-029 is no longer a warning: without a time it is not
+    // strong evidence of a duplicate, so both rows count, with a note.
     let report =
         crate::check::check_program(&sample_dir(), NaiveDate::from_ymd_opt(2026, 12, 2).unwrap());
     assert!(!report.program_invalid());
@@ -707,7 +709,6 @@ fn check_reports_the_planted_defects_and_nothing_else() {
         files,
         [
             "participants/SG-023/weights.csv",
-            "participants/SG-029/intake.csv",
             "participants/SG-032/weights.csv",
             "participants/SG-033/weights.csv",
             "participants/SG-042/weights.csv",

@@ -4,6 +4,7 @@
 //! (read-only), checks everything and returns the data with every diagnostic. A problem in one
 //! participant never stops the others. The parsers ([`profile`], [`records`]) work on text.
 
+pub mod encoding;
 pub mod profile;
 pub mod quantity;
 pub mod records;
@@ -52,12 +53,16 @@ pub struct LoadedParticipant {
     pub data: Option<ParticipantData>,
     /// Every problem found, errors and warnings.
     pub diagnostics: Vec<Diagnostic>,
+    /// How files were read where it was recognised rather than written our way (shown by
+    /// `check`; not problems).
+    pub notes: Vec<table::Note>,
     /// Files read.
     pub files: Vec<InputFile>,
 }
 
 impl LoadedParticipant {
-    /// Whether any diagnostic is an error (the participant is then left out).
+    /// Whether any diagnostic is an error (a file that could not be used, or the whole
+    /// participant when the profile or folder is unusable).
     pub fn has_errors(&self) -> bool {
         self.diagnostics
             .iter()
@@ -179,10 +184,38 @@ fn printable(name: &str) -> String {
 
 /// The CSV options of a program.
 pub fn csv_options(program: &Program) -> CsvOptions {
+    let input = &program.def.input;
+    let columns = input
+        .columns
+        .iter()
+        .map(|(kind, map)| {
+            let map = map
+                .iter()
+                .map(|(written, ours)| (table::header_key(written).0, ours.clone()))
+                .collect();
+            (kind.clone(), map)
+        })
+        .collect();
+    let mut activities = crate::activities::LocalTable::default();
+    for (label, a) in &program.def.activities {
+        // load_program has checked that each entry has one usable value.
+        let entry = match (&a.compendium, a.met) {
+            (Some(code), _) => crate::activities::by_compendium_or_code(code)
+                .map(crate::activities::LocalEntry::Compendium),
+            (None, Some(m)) => Some(crate::activities::LocalEntry::Met(m)),
+            (None, None) => None,
+        };
+        if let Some(e) = entry {
+            activities.insert(label, e);
+        }
+    }
     CsvOptions {
         // load_program has checked the delimiter is one ASCII character.
-        delimiter: u8::try_from(program.def.input.delimiter).unwrap_or(b','),
-        date_format: program.def.input.date_format.clone(),
+        delimiter: input.delimiter.and_then(|d| u8::try_from(d).ok()),
+        date_format: input.date_format.clone(),
+        time_zone: input.time_zone.as_deref().and_then(table::LocalZone::parse),
+        columns: std::sync::Arc::new(columns),
+        activities: std::sync::Arc::new(activities),
     }
 }
 
@@ -213,7 +246,7 @@ fn read_input(
         Err(e) => {
             diags.push(
                 ctx.error(format!("cannot read the file ({e})"))
-                    .hint("the participant is left out until the file can be read; other participants are not affected"),
+                    .hint("this file is left out until it can be read; the participant is reported without it, and other participants are not affected"),
             );
             return Some(Err(()));
         }
@@ -225,10 +258,26 @@ fn read_input(
     });
     match decode_utf8(&bytes, &ctx.file) {
         Ok(t) => Some(Ok(t.to_string())),
-        Err(d) => {
-            diags.push(d.participant(&ctx.participant));
-            Some(Err(()))
-        }
+        Err(d) => match encoding::decode_legacy(&bytes) {
+            // A legacy 8-bit file (Windows-1252 / Latin-1) is read when it decodes
+            // unambiguously; otherwise the UTF-8 error stands, with how to fix it.
+            Ok((text, chars)) => {
+                diags.push(
+                    ctx.warning(format!(
+                        "the file is not UTF-8; it was read as Windows-1252 (Western European), which gives {chars}"
+                    ))
+                    .hint("check those characters, then save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8)"),
+                );
+                Some(Ok(text))
+            }
+            Err(why) => {
+                let hint = format!(
+                    "{why}; save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8)"
+                );
+                diags.push(d.participant(&ctx.participant).hint(hint));
+                Some(Err(()))
+            }
+        },
     }
 }
 
@@ -271,6 +320,7 @@ pub fn load_participant(
                 id: dir.id.clone(),
                 data: None,
                 diagnostics: diags,
+                notes: Vec::new(),
                 files,
             };
         }
@@ -354,6 +404,10 @@ pub fn load_participant(
         withdrew: profile.as_ref().and_then(|p| p.withdrew),
         as_of,
     };
+    // Only the profile (and the folder) can make a participant unusable: a CSV file that
+    // cannot be used is an error for that file, and the participant is reported without it.
+    let profile_usable = !diags.iter().any(|d| d.severity == Severity::Error);
+    let mut notes = Vec::new();
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
             let ctx = FileCtx::new(id, rel($spec.name));
@@ -372,6 +426,7 @@ pub fn load_participant(
                     $parse(&text, &opts, &ctx, &window, &mut diags).unwrap_or_default()
                 }
             };
+            notes.extend(ctx.take_notes());
             crate::diag::cap_per_kind(&mut diags, first_diag);
             rows
         }};
@@ -382,9 +437,8 @@ pub fn load_participant(
     let sessions = csv_file!(records::SESSIONS, records::parse_sessions);
     let labs = csv_file!(records::LABS, records::parse_labs);
 
-    let has_errors = diags.iter().any(|d| d.severity == Severity::Error);
     let data = match profile {
-        Some(profile) if !has_errors => Some(ParticipantData {
+        Some(profile) if profile_usable => Some(ParticipantData {
             profile,
             weights,
             intake,
@@ -400,6 +454,7 @@ pub fn load_participant(
         id: dir.id.clone(),
         data,
         diagnostics: diags,
+        notes,
         files,
     }
 }

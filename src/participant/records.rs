@@ -19,36 +19,121 @@ use cohortpress_metric_api::{
 use std::collections::{BTreeMap, HashMap};
 use std::fmt::Debug;
 
+/// Units a weight column's header may carry.
+const MASS_UNITS: &[&str] = &[
+    "kg",
+    "kgs",
+    "kilogram",
+    "kilograms",
+    "lb",
+    "lbs",
+    "pound",
+    "pounds",
+];
+
 /// `weights.csv`.
 pub const WEIGHTS: FileSpec = FileSpec {
     name: "weights.csv",
     required: &["date", "weight", "unit"],
     optional: &["time", "source"],
+    aliases: &[
+        ("day", "date"),
+        ("datetime", "date"),
+        ("date_time", "date"),
+        ("timestamp", "date"),
+        ("measured_at", "date"),
+        ("body_weight", "weight"),
+        ("bodyweight", "weight"),
+        ("mass", "weight"),
+        ("body_mass", "weight"),
+        ("weight_unit", "unit"),
+        ("units", "unit"),
+        ("device", "source"),
+    ],
+    header_units: &[("weight", MASS_UNITS, Some("unit"))],
 };
 /// `intake.csv`.
 pub const INTAKE: FileSpec = FileSpec {
     name: "intake.csv",
     required: &["date", "kcal"],
-    optional: &["carbs_g", "fat_g", "protein_g", "free_sugars_g"],
+    optional: &["carbs_g", "fat_g", "protein_g", "free_sugars_g", "time"],
+    aliases: &[
+        ("day", "date"),
+        ("datetime", "date"),
+        ("timestamp", "date"),
+        ("calories", "kcal"),
+        ("energy", "kcal"),
+        ("energy_kcal", "kcal"),
+        ("carbs", "carbs_g"),
+        ("carbohydrate", "carbs_g"),
+        ("carbohydrates", "carbs_g"),
+        ("fat", "fat_g"),
+        ("protein", "protein_g"),
+        ("free_sugars", "free_sugars_g"),
+    ],
+    header_units: &[
+        ("kcal", &["kcal", "cal", "kj"], None),
+        ("carbs_g", &["g"], None),
+        ("fat_g", &["g"], None),
+        ("protein_g", &["g"], None),
+        ("free_sugars_g", &["g"], None),
+    ],
 };
 /// `activity.csv`.
 pub const ACTIVITY: FileSpec = FileSpec {
     name: "activity.csv",
     required: &["date", "activity", "minutes"],
-    optional: &["met", "steps"],
+    optional: &["met", "steps", "time"],
+    aliases: &[
+        ("day", "date"),
+        ("datetime", "date"),
+        ("timestamp", "date"),
+        ("start", "date"),
+        ("activity_type", "activity"),
+        ("exercise", "activity"),
+        ("type", "activity"),
+        ("duration", "minutes"),
+        ("mins", "minutes"),
+        ("duration_min", "minutes"),
+        ("duration_minutes", "minutes"),
+        ("mets", "met"),
+        ("step_count", "steps"),
+    ],
+    header_units: &[(
+        "minutes",
+        &["min", "mins", "minutes", "h", "hr", "hours"],
+        None,
+    )],
 };
 /// `sessions.csv`.
 pub const SESSIONS: FileSpec = FileSpec {
     name: "sessions.csv",
     required: &["date", "session", "attended"],
     optional: &[],
+    aliases: &[
+        ("day", "date"),
+        ("attendance", "attended"),
+        ("present", "attended"),
+    ],
+    header_units: &[],
 };
 /// `labs.csv`.
 pub const LABS: FileSpec = FileSpec {
     name: "labs.csv",
-    required: &["date", "test", "value", "unit"],
-    optional: &[],
+    required: &["date", "test", "value"],
+    optional: &["unit"],
+    aliases: &[
+        ("day", "date"),
+        ("datetime", "date"),
+        ("test_name", "test"),
+        ("analyte", "test"),
+        ("result", "value"),
+        ("units", "unit"),
+    ],
+    header_units: &[("value", &[], None)],
 };
+/// Every CSV file a participant folder may hold.
+pub const ALL_FILES: [FileSpec; 5] = [WEIGHTS, INTAKE, ACTIVITY, SESSIONS, LABS];
 
 /// Plausible body weight, kg (common practice: outside this range a value is a typing or unit
 /// error, not a person in a lifestyle program).
@@ -86,10 +171,13 @@ pub struct Window {
 struct Parsed<T> {
     line: u64,
     date: NaiveDate,
+    /// Time of day written with the date (a date-time), if any.
+    time: Option<NaiveTime>,
     value: T,
 }
 
-/// Reads the rows of `table` through `f`, skipping rows `f` refuses.
+/// Reads the rows of `table` through `f`, skipping rows `f` refuses and rows that repeat
+/// earlier rows on strong evidence ([`Table::repeated_rows`]).
 fn parse_rows<T>(
     table: &Table,
     ctx: &FileCtx,
@@ -97,26 +185,113 @@ fn parse_rows<T>(
     diags: &mut Vec<Diagnostic>,
     mut f: impl FnMut(&Cells<'_>, &mut Vec<Diagnostic>) -> Option<T>,
 ) -> Vec<Parsed<T>> {
+    let repeats = table.repeated_rows();
+    report_repeats(table, &repeats, ctx, diags);
     let mut out = Vec::new();
-    for row in &table.rows {
+    for (row, repeat) in table.rows.iter().zip(&repeats) {
+        if repeat.is_some() {
+            continue;
+        }
         let cells = Cells {
             table,
             row,
             ctx,
             opts,
         };
-        let Some(date) = cells.date("date", diags) else {
+        let Some(when) = cells.when("date", diags) else {
             continue;
         };
         if let Some(value) = f(&cells, diags) {
             out.push(Parsed {
                 line: row.line,
-                date,
+                date: when.date,
+                time: when.time,
                 value,
             });
         }
     }
     out
+}
+
+/// One warning per run of repeated rows: a single row identical to an earlier one in every
+/// column (time included), or a block of rows repeating an earlier block.
+fn report_repeats(
+    table: &Table,
+    repeats: &[Option<u64>],
+    ctx: &FileCtx,
+    diags: &mut Vec<Diagnostic>,
+) {
+    let mut k = 0;
+    while k < repeats.len() {
+        let Some(orig) = repeats[k] else {
+            k += 1;
+            continue;
+        };
+        let mut end = k;
+        while end + 1 < repeats.len() && repeats[end + 1].is_some() {
+            end += 1;
+        }
+        let (first, last) = (table.rows[k].line, table.rows[end].line);
+        let d = if end == k {
+            ctx.warning(format!(
+                "identical to line {orig} in every column, time included; the row is dropped as a duplicate"
+            ))
+            .at(first, None)
+            .hint("remove repeated rows (a file exported twice and pasted together?)")
+        } else {
+            let orig_last = repeats[end].expect("in the run");
+            ctx.warning(format!(
+                "lines {first}–{last} ({} rows) repeat lines {orig}–{orig_last} row for row; they are dropped as duplicates",
+                end - k + 1
+            ))
+            .at(first, None)
+            .hint("remove the repeated block (a file exported twice and pasted together?)")
+        };
+        diags.push(d);
+        k = end + 1;
+    }
+}
+
+/// Notes identical rows on one day that are all counted (two snacks of the same size are
+/// common): the day's total includes each, and the note says so, once per file.
+fn note_identical_same_day<T: SameValue>(rows: &[Parsed<T>], what: &str, ctx: &FileCtx) {
+    let mut order: Vec<usize> = (0..rows.len()).collect();
+    order.sort_by_key(|&i| rows[i].date);
+    let mut found = Vec::new();
+    for group in order.chunk_by(|&a, &b| rows[a].date == rows[b].date) {
+        if group.len() < 2 || group.len() > PAIRWISE_MAX {
+            continue;
+        }
+        let mut lines = Vec::new();
+        for (k, &i) in group.iter().enumerate() {
+            if group[..k]
+                .iter()
+                .chain(&group[k + 1..])
+                .any(|&j| rows[j].time == rows[i].time && rows[j].value.same_value(&rows[i].value))
+            {
+                lines.push(rows[i].line.to_string());
+            }
+        }
+        if !lines.is_empty() {
+            found.push(format!(
+                "{} (lines {})",
+                rows[group[0]].date,
+                lines.join(", ")
+            ));
+        }
+    }
+    if !found.is_empty() {
+        let n = found.len();
+        let shown = found.iter().take(5).cloned().collect::<Vec<_>>().join("; ");
+        let more = if n > 5 {
+            format!(" and {} more", n - 5)
+        } else {
+            String::new()
+        };
+        ctx.note(format!(
+            "identical {what} rows on the same day are each counted in the day's total: {shown}{more}; delete one only if it was entered twice"
+        ));
+    }
 }
 
 /// Equality of parsed values for [`dedupe`]: exactly "prints the same with `{:?}`" (floats print
@@ -316,7 +491,11 @@ pub fn parse_weights(
     let table = read_table(text, &WEIGHTS, opts, ctx, diags)?;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let value = c.number("weight", d)?;
-        let unit_text = c.required_text("unit", d)?;
+        // The unit column, else a unit written in the weight column's header.
+        let unit_text = match c.text("unit").or(c.table.header_unit("weight")) {
+            Some(u) => u.to_string(),
+            None => c.required_text("unit", d)?,
+        };
         let unit = match unit_text.to_lowercase().as_str() {
             "kg" | "kgs" | "kilogram" | "kilograms" => WeightUnit::Kg,
             "lb" | "lbs" | "pound" | "pounds" => WeightUnit::Lb,
@@ -329,9 +508,10 @@ pub fn parse_weights(
                 return None;
             }
         };
-        let time = c
-            .text("time")
-            .and_then(|t| match NaiveTime::parse_from_str(t, "%H:%M") {
+        let time = c.text("time").and_then(|t| {
+            match NaiveTime::parse_from_str(t, "%H:%M")
+                .or_else(|_| NaiveTime::parse_from_str(t, "%H:%M:%S"))
+            {
                 Ok(tm) => Some(tm.format("%H:%M").to_string()),
                 Err(_) => {
                     d.push(
@@ -341,7 +521,8 @@ pub fn parse_weights(
                     );
                     None
                 }
-            });
+            }
+        });
         Some(RawWeight {
             time,
             value,
@@ -349,8 +530,17 @@ pub fn parse_weights(
             source: c.text("source").map(str::to_string),
         })
     });
-    let rows = dedupe(rows, ctx, diags);
+    let rows: Vec<Parsed<RawWeight>> = rows
+        .into_iter()
+        .map(|mut r| {
+            if r.value.time.is_none() {
+                r.value.time = r.time.map(|t| t.format("%H:%M").to_string());
+            }
+            r
+        })
+        .collect();
     let rows = in_window(rows, w, &table, ctx, diags);
+    table.describe(opts, ctx);
 
     // A weigh-in in the wrong unit: compare with the median of the other weigh-ins within
     // ±14 days (only plausible ones) and look for the lb/kg factor.
@@ -480,7 +670,11 @@ pub fn parse_intake(
 ) -> Option<Vec<IntakeDay>> {
     let table = read_table(text, &INTAKE, opts, ctx, diags)?;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
-        let kcal = c.number("kcal", d)?;
+        let mut kcal = c.number("kcal", d)?;
+        if c.table.header_unit("kcal") == Some("kj") {
+            // 1 kcal = 4.184 kJ (thermochemical calorie, exact by definition).
+            kcal /= 4.184;
+        }
         if kcal < 0.0 {
             d.push(
                 c.warn("kcal", "negative energy; the row is dropped")
@@ -503,8 +697,9 @@ pub fn parse_intake(
         }
         Some(RawIntake { kcal, macros })
     });
-    let rows = dedupe(rows, ctx, diags);
+    note_identical_same_day(&rows, "intake", ctx);
     let rows = in_window(rows, w, &table, ctx, diags);
+    table.describe(opts, ctx);
 
     struct Day {
         kcal: f64,
@@ -616,9 +811,14 @@ pub fn parse_activity(
 ) -> Option<Vec<ActivityEntry>> {
     let table = read_table(text, &ACTIVITY, opts, ctx, diags)?;
     let has_met_column = table.column("met").is_some();
+    // Unknown labels: (rows, first line), reported once per label.
+    let mut unknown: BTreeMap<String, (usize, u64)> = BTreeMap::new();
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let activity = c.required_text("activity", d)?;
-        let minutes = c.number("minutes", d)?;
+        let mut minutes = c.number("minutes", d)?;
+        if matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours")) {
+            minutes *= 60.0;
+        }
         if !(0.0..=MAX_ACTIVITY_MINUTES).contains(&minutes) {
             d.push(
                 c.warn("minutes", "implausible minutes; the row is dropped")
@@ -644,24 +844,14 @@ pub fn parse_activity(
                 }
                 (m, "given in file".to_string())
             }
-            None => match activities::lookup(&activity) {
-                Some(def) => (def.met, def.met_source()),
+            None => match activities::resolve(&activity, &opts.activities) {
+                Some(r) => (r.met, r.source),
                 None => {
-                    let known = activities::common_codes().join(", ");
-                    let how = if has_met_column {
-                        "or fill in its `met` value"
-                    } else {
-                        "or add a `met` column with its MET value"
-                    };
-                    d.push(
-                        c.warn(
-                            "activity",
-                            "unknown activity code and no MET value; the row is dropped",
-                        )
-                        .expected("a code from the activity table, or any label with a `met` value")
-                        .found(format!("`{activity}`"))
-                        .hint(format!("known codes include {known}; use one {how}")),
-                    );
+                    // Reported once per label after the file is read.
+                    let e = unknown
+                        .entry(activity.clone())
+                        .or_insert((0usize, c.row.line));
+                    e.0 += 1;
                     return None;
                 }
             },
@@ -681,8 +871,36 @@ pub fn parse_activity(
         };
         Some((activity, minutes, met, met_source, steps))
     });
-    let rows = dedupe(rows, ctx, diags);
+    let acol = table.column("activity");
+    for (label, (n, first)) in &unknown {
+        let near = activities::suggestions(label, &opts.activities, 3)
+            .iter()
+            .map(|s| format!("`{s}`"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        let how = if has_met_column {
+            "fill in the `met` value of these rows"
+        } else {
+            "add a `met` column with the MET value"
+        };
+        let rows = if *n == 1 { "row" } else { "rows" };
+        diags.push(
+            ctx.warning(format!(
+                "unknown activity `{label}` in {n} {rows} (first at line {first}); without a MET value the {rows} {} dropped",
+                if *n == 1 { "is" } else { "are" }
+            ))
+            .at(*first, acol)
+            .field("activity")
+            .expected("an activity the tool knows (a walk, run or ride with a speed or effort, swimming, strength training, yoga …), a label from program.yaml's `activities:`, or any label with a `met` value")
+            .found(format!("`{label}`"))
+            .hint(format!(
+                "nearest known labels: {near}; or teach the program the label: `activities: {{ \"{label}\": {{ compendium: \"17190\" }} }}` (a Compendium code) or `{{ met: 4.0 }}` in program.yaml; or {how}"
+            )),
+        );
+    }
+    note_identical_same_day(&rows, "activity", ctx);
     let rows = in_window(rows, w, &table, ctx, diags);
+    table.describe(opts, ctx);
 
     let mut per_day: BTreeMap<NaiveDate, f64> = BTreeMap::new();
     for r in &rows {
@@ -751,6 +969,7 @@ pub fn parse_sessions(
     });
     let rows = dedupe(rows, ctx, diags);
     let rows = in_window(rows, w, &table, ctx, diags);
+    table.describe(opts, ctx);
     let mut out: Vec<SessionRecord> = rows
         .into_iter()
         .map(|r| SessionRecord {
@@ -769,10 +988,10 @@ fn lab_unit(test: LabTest, unit: &str) -> Option<fn(f64) -> f64> {
     Some(match (test, u.as_str()) {
         (LabTest::FastingGlucose, "mmol/l") => |v| v,
         (LabTest::FastingGlucose, "mg/dl") => glucose_mgdl_to_mmoll,
-        (LabTest::Hba1c, "%") => |v| v,
+        (LabTest::Hba1c, "%" | "percent") => |v| v,
         (LabTest::Hba1c, "mmol/mol") => hba1c_mmolmol_to_percent,
         (LabTest::Waist, "cm") => |v| v,
-        (LabTest::Waist, "in" | "inch" | "inches") => |v| v * CM_PER_IN,
+        (LabTest::Waist, "in" | "inch" | "inches" | "[in_i]") => |v| v * CM_PER_IN,
         (LabTest::SystolicBp | LabTest::DiastolicBp, "mmhg") => |v| v,
         _ => return None,
     })
@@ -799,7 +1018,69 @@ fn lab_range(test: LabTest) -> (f64, f64) {
     }
 }
 
-/// Parses `labs.csv`, converting each value to its test's canonical unit.
+/// What a lab row's `test` names: one test, or blood pressure written as `128/82`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum LabName {
+    One(LabTest),
+    BloodPressure,
+}
+
+/// The usual spellings of each test (lowercase, other characters as `_`).
+fn lab_name(name: &str) -> Option<LabName> {
+    let key = super::table::header_key(name).0;
+    Some(match key.as_str() {
+        "fasting_glucose"
+        | "glucose_fasting"
+        | "fasting_plasma_glucose"
+        | "fpg"
+        | "fasting_blood_glucose"
+        | "fbg"
+        | "fasting_blood_sugar"
+        | "fbs"
+        | "fasting_glucose_plasma" => LabName::One(LabTest::FastingGlucose),
+        "hba1c"
+        | "a1c"
+        | "hb_a1c"
+        | "hba1c_ifcc"
+        | "hba1c_dcct"
+        | "hemoglobin_a1c"
+        | "haemoglobin_a1c"
+        | "glycated_hemoglobin"
+        | "glycated_haemoglobin"
+        | "glycohemoglobin" => LabName::One(LabTest::Hba1c),
+        "waist" | "waist_circumference" | "waist_circ" => LabName::One(LabTest::Waist),
+        "systolic_bp" | "systolic" | "sbp" | "systolic_blood_pressure" | "bp_systolic" => {
+            LabName::One(LabTest::SystolicBp)
+        }
+        "diastolic_bp" | "diastolic" | "dbp" | "diastolic_blood_pressure" | "bp_diastolic" => {
+            LabName::One(LabTest::DiastolicBp)
+        }
+        "blood_pressure" | "bp" | "bloodpressure" => LabName::BloodPressure,
+        _ => return None,
+    })
+}
+
+/// Splits `5.7 %`, `128/82 mmHg` or `6,1 mmol/L` into the number part and the unit written
+/// after it (if any).
+fn split_value_unit(s: &str) -> (&str, Option<&str>) {
+    let end = s
+        .char_indices()
+        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | ',' | '/' | '-' | '+' | ' ')))
+        .map_or(s.len(), |(i, _)| i);
+    let (num, unit) = s.split_at(end);
+    let unit = unit.trim();
+    (num.trim(), (!unit.is_empty()).then_some(unit))
+}
+
+impl SameValue for Vec<LabResult> {
+    fn same_value(&self, o: &Self) -> bool {
+        self.len() == o.len() && self.iter().zip(o).all(|(a, b)| a.same_value(b))
+    }
+}
+
+/// Parses `labs.csv`, converting each value to its test's canonical unit. Tests may be written
+/// in their usual spellings (`HbA1c`, `A1c`, `FPG`, `SBP`); a value may carry its unit
+/// (`5.7 %`); blood pressure may be one row `blood_pressure` with `128/82` (mmHg).
 pub fn parse_labs(
     text: &str,
     opts: &CsvOptions,
@@ -810,63 +1091,113 @@ pub fn parse_labs(
     let table = read_table(text, &LABS, opts, ctx, diags)?;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let name = c.required_text("test", d)?;
-        let test = match name.to_lowercase().as_str() {
-            "fasting_glucose" => LabTest::FastingGlucose,
-            "hba1c" => LabTest::Hba1c,
-            "waist" => LabTest::Waist,
-            "systolic_bp" => LabTest::SystolicBp,
-            "diastolic_bp" => LabTest::DiastolicBp,
-            _ => {
+        let Some(kind) = lab_name(&name) else {
+            d.push(
+                c.warn("test", "unknown test; the row is dropped")
+                    .expected("one of fasting_glucose, hba1c, waist, systolic_bp, diastolic_bp, blood_pressure (usual spellings such as HbA1c, A1c, FPG, SBP/DBP are read too)")
+                    .found(format!("`{name}`")),
+            );
+            return None;
+        };
+        let raw = c.required_text("value", d)?;
+        let (num_text, unit_in_value) = split_value_unit(&raw);
+        let unit = c
+            .text("unit")
+            .or(unit_in_value)
+            .or(c.table.header_unit("value"))
+            .map(str::to_string)
+            .or_else(|| matches!(kind, LabName::BloodPressure).then(|| "mmHg".to_string()));
+        let Some(unit) = unit else {
+            d.push(
+                c.warn("value", format!("no unit for `{name}`; the row is dropped"))
+                    .found(format!("`{raw}`"))
+                    .hint("add a `unit` column, or write the unit with the value (`5.7 %`)"),
+            );
+            return None;
+        };
+        let parts: Vec<(LabTest, &str)> = match kind {
+            LabName::One(t) => vec![(t, num_text)],
+            LabName::BloodPressure => match num_text.split_once('/') {
+                Some((sys, dia)) => vec![
+                    (LabTest::SystolicBp, sys.trim()),
+                    (LabTest::DiastolicBp, dia.trim()),
+                ],
+                None => {
+                    d.push(
+                        c.warn(
+                            "value",
+                            "blood pressure needs both numbers; the row is dropped",
+                        )
+                        .expected("systolic/diastolic, e.g. `128/82`")
+                        .found(format!("`{raw}`")),
+                    );
+                    return None;
+                }
+            },
+        };
+        let mut out = Vec::with_capacity(parts.len());
+        for (test, num) in parts {
+            let value = c.parse_number("value", num, "the row is dropped", d)?;
+            let Some(convert) = lab_unit(test, &unit) else {
                 d.push(
-                    c.warn("test", "unknown test; the row is dropped")
-                        .expected("one of fasting_glucose, hba1c, waist, systolic_bp, diastolic_bp")
-                        .found(format!("`{name}`")),
+                    c.warn(
+                        if c.text("unit").is_some() {
+                            "unit"
+                        } else {
+                            "value"
+                        },
+                        format!("unit not accepted for `{name}`; the row is dropped"),
+                    )
+                    .expected(lab_units_text(test))
+                    .found(format!("`{unit}`")),
+                );
+                return None;
+            };
+            let canonical = convert(value);
+            let (lo, hi) = lab_range(test);
+            if !(lo..=hi).contains(&canonical) {
+                d.push(
+                    c.warn(
+                        "value",
+                        format!("implausible `{name}` value; the row is dropped"),
+                    )
+                    .expected(format!("{lo} to {hi} {}", test.canonical_unit()))
+                    .found(format!("`{value}` {unit}"))
+                    .hint("check for a typing error or a wrong unit"),
                 );
                 return None;
             }
-        };
-        let value = c.number("value", d)?;
-        let unit = c.required_text("unit", d)?;
-        let Some(convert) = lab_unit(test, &unit) else {
-            d.push(
-                c.warn(
-                    "unit",
-                    format!("unit not accepted for `{name}`; the row is dropped"),
-                )
-                .expected(lab_units_text(test))
-                .found(format!("`{unit}`")),
-            );
-            return None;
-        };
-        let canonical = convert(value);
-        let (lo, hi) = lab_range(test);
-        if !(lo..=hi).contains(&canonical) {
+            out.push(LabResult {
+                date: NaiveDate::MIN,
+                test,
+                value: canonical,
+                unit_as_written: unit.clone(),
+                value_as_written: value,
+            });
+        }
+        if let [sys, dia] = out.as_slice()
+            && sys.value <= dia.value
+        {
             d.push(
                 c.warn(
                     "value",
-                    format!("implausible `{name}` value; the row is dropped"),
+                    "systolic pressure not above diastolic; the row is dropped",
                 )
-                .expected(format!("{lo} to {hi} {}", test.canonical_unit()))
-                .found(format!("`{value}` {unit}"))
-                .hint("check for a typing error or a wrong unit"),
+                .expected("systolic/diastolic, e.g. `128/82`")
+                .found(format!("`{raw}`")),
             );
             return None;
         }
-        Some(LabResult {
-            date: NaiveDate::MIN,
-            test,
-            value: canonical,
-            unit_as_written: unit,
-            value_as_written: value,
-        })
+        Some(out)
     });
     let rows = dedupe(rows, ctx, diags);
     let rows = in_window(rows, w, &table, ctx, diags);
+    table.describe(opts, ctx);
     let mut out: Vec<LabResult> = rows
         .into_iter()
-        .map(|r| LabResult {
-            date: r.date,
-            ..r.value
+        .flat_map(|r| {
+            let date = r.date;
+            r.value.into_iter().map(move |l| LabResult { date, ..l })
         })
         .collect();
     out.sort_by_key(|l| (l.date, l.test));

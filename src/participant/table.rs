@@ -1,12 +1,33 @@
 //! Reading one CSV file into rows addressed by column name, with every problem of the file's
 //! shape reported: missing or duplicate columns, extra columns, rows with the wrong number of
 //! fields. Cell values are read by the helpers here so every message has the same form.
+//!
+//! Files are read as people's tools export them: the delimiter is recognised per file (comma,
+//! semicolon or tab) unless `input.delimiter` fixes it; a decimal comma is read where the
+//! delimiter is not a comma; dates may be date-times with or without a UTC offset; headers may
+//! carry a unit (`Weight (lb)`) and may be mapped to our column names in program.yaml
+//! (`input.columns`). Whatever was recognised rather than written our way is stated once per
+//! file as a [`Note`].
 
 use super::quantity::{NumberError, parse_decimal};
 use crate::diag::Diagnostic;
 use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_ROWS};
-use chrono::NaiveDate;
-use std::collections::BTreeMap;
+use chrono::{DateTime, FixedOffset, NaiveDate, NaiveDateTime, NaiveTime, Offset};
+use std::cell::{Cell, RefCell};
+use std::collections::{BTreeMap, HashMap};
+use std::sync::Arc;
+
+/// Something the reader recognised or decided about a file that is not a problem (how it was
+/// read, rows counted as written): shown by `check`, never counted as a warning.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct Note {
+    /// Participant id.
+    pub participant: String,
+    /// File path relative to the program folder.
+    pub file: String,
+    /// What was recognised or decided.
+    pub message: String,
+}
 
 /// Where diagnostics go: the participant and the file (relative to the program folder).
 #[derive(Debug, Clone)]
@@ -15,6 +36,8 @@ pub struct FileCtx {
     pub participant: String,
     /// File path relative to the program folder.
     pub file: String,
+    /// Notes about how the file was read (see [`Note`]).
+    pub notes: RefCell<Vec<Note>>,
 }
 
 impl FileCtx {
@@ -23,6 +46,7 @@ impl FileCtx {
         FileCtx {
             participant: participant.to_string(),
             file: file.into(),
+            notes: RefCell::new(Vec::new()),
         }
     }
     /// An error about this file.
@@ -33,22 +57,92 @@ impl FileCtx {
     pub fn warning(&self, message: impl Into<String>) -> Diagnostic {
         Diagnostic::warning(&self.file, message).participant(&self.participant)
     }
+    /// Records a note about this file.
+    pub fn note(&self, message: impl Into<String>) {
+        self.notes.borrow_mut().push(Note {
+            participant: self.participant.clone(),
+            file: self.file.clone(),
+            message: message.into(),
+        });
+    }
+    /// The notes recorded so far.
+    pub fn take_notes(&self) -> Vec<Note> {
+        std::mem::take(&mut *self.notes.borrow_mut())
+    }
 }
+
+/// The participants' local time zone (`input.time_zone`): an IANA zone or a fixed offset.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum LocalZone {
+    /// An IANA time zone such as `Europe/Berlin` (daylight saving time applied).
+    Named(chrono_tz::Tz),
+    /// A fixed offset from UTC such as `+01:00`.
+    Fixed(FixedOffset),
+}
+
+impl LocalZone {
+    /// Reads `UTC`, an IANA name or an offset `+HH:MM` / `-HH:MM`.
+    pub fn parse(s: &str) -> Option<LocalZone> {
+        let s = s.trim();
+        if let Ok(tz) = s.parse::<chrono_tz::Tz>() {
+            return Some(LocalZone::Named(tz));
+        }
+        let (sign, rest) = match s.as_bytes().first()? {
+            b'+' => (1, &s[1..]),
+            b'-' => (-1, &s[1..]),
+            _ => return None,
+        };
+        let (h, m) = rest.split_once(':').unwrap_or((rest, "0"));
+        let (h, m): (i32, i32) = (h.parse().ok()?, m.parse().ok()?);
+        if !(0..=14).contains(&h) || !(0..60).contains(&m) {
+            return None;
+        }
+        FixedOffset::east_opt(sign * (h * 3600 + m * 60)).map(LocalZone::Fixed)
+    }
+
+    /// The local date and time of an instant.
+    fn local(&self, t: DateTime<FixedOffset>) -> NaiveDateTime {
+        match self {
+            LocalZone::Named(tz) => t.with_timezone(tz).naive_local(),
+            LocalZone::Fixed(o) => t.with_timezone(o).naive_local(),
+        }
+    }
+
+    fn name(&self) -> String {
+        match self {
+            LocalZone::Named(tz) => tz.name().to_string(),
+            LocalZone::Fixed(o) => o.to_string(),
+        }
+    }
+}
+
+/// Column-name mapping of one file kind: the header as written (normalised by
+/// [`header_key`]) → our column name.
+pub type ColumnMap = BTreeMap<String, String>;
 
 /// How CSV files are read (from `program.yaml`'s `input:`).
 #[derive(Debug, Clone)]
 pub struct CsvOptions {
-    /// Field delimiter.
-    pub delimiter: u8,
-    /// chrono date format.
+    /// Field delimiter; `None`: recognised per file (comma, semicolon or tab).
+    pub delimiter: Option<u8>,
+    /// chrono date format (may include a time and an offset).
     pub date_format: String,
+    /// The participants' local time zone, for times stamped in UTC.
+    pub time_zone: Option<LocalZone>,
+    /// Column mappings by file kind (`weights`, `intake`, `activity`, `sessions`, `labs`).
+    pub columns: Arc<BTreeMap<String, ColumnMap>>,
+    /// The program's own activity labels.
+    pub activities: Arc<crate::activities::LocalTable>,
 }
 
 impl Default for CsvOptions {
     fn default() -> Self {
         CsvOptions {
-            delimiter: b',',
+            delimiter: None,
             date_format: "%Y-%m-%d".into(),
+            time_zone: None,
+            columns: Arc::default(),
+            activities: Arc::default(),
         }
     }
 }
@@ -62,6 +156,23 @@ pub struct FileSpec {
     pub required: &'static [&'static str],
     /// Columns that may be present.
     pub optional: &'static [&'static str],
+    /// Other header names read as one of our columns (after [`header_key`]).
+    pub aliases: &'static [(&'static str, &'static str)],
+    /// Columns whose header may carry a unit (`Weight (lb)`): the units accepted (empty: any,
+    /// checked row by row) and the unit column such a header makes unnecessary.
+    pub header_units: &'static [(&'static str, &'static [&'static str], Option<&'static str>)],
+}
+
+impl FileSpec {
+    /// The file kind used in `input.columns` (`weights` for `weights.csv`).
+    pub fn kind(&self) -> &'static str {
+        self.name.strip_suffix(".csv").unwrap_or(self.name)
+    }
+
+    /// Every column name of the file.
+    pub fn all_columns(&self) -> impl Iterator<Item = &'static str> {
+        self.required.iter().chain(self.optional).copied()
+    }
 }
 
 /// One data row.
@@ -85,6 +196,22 @@ pub struct Table {
     pub rows: Vec<Row>,
     text: String,
     bounds: Vec<(usize, usize)>,
+    /// Fields per row.
+    width: usize,
+    /// The field delimiter the file was read with.
+    pub delimiter: u8,
+    /// Whether the delimiter was recognised rather than set in program.yaml.
+    sniffed: bool,
+    /// Units written in the header, by our column name (lowercase, e.g. `lb`).
+    units: BTreeMap<&'static str, String>,
+    /// Headers read as one of our columns under another name: (as written, our column).
+    renamed: Vec<(String, &'static str)>,
+    /// Set when a number was read with a decimal comma.
+    decimal_comma: Cell<bool>,
+    /// Set when a date carried a time of day.
+    timestamps: Cell<bool>,
+    /// Set when a UTC time was converted to the local time zone.
+    utc_converted: Cell<bool>,
 }
 
 impl Table {
@@ -96,19 +223,221 @@ impl Table {
     /// The trimmed text of `col` in `row`; `None` when the column is absent or the cell empty.
     pub fn get<'t>(&'t self, row: &Row, col: &str) -> Option<&'t str> {
         let i = *self.columns.get(col)?;
+        self.field(row, i)
+    }
+
+    fn field<'t>(&'t self, row: &Row, i: usize) -> Option<&'t str> {
         let (a, b) = *self.bounds.get(row.first + i)?;
         let s = self.text[a..b].trim();
         (!s.is_empty()).then_some(s)
     }
 
-    fn empty() -> Table {
+    /// The unit written in the header of `col` (`Weight (lb)` → `lb`), lowercase.
+    pub fn header_unit(&self, col: &str) -> Option<&str> {
+        self.units.get(col).map(String::as_str)
+    }
+
+    /// Whether rows `a` and `b` hold the same text in every field.
+    pub fn same_row(&self, a: &Row, b: &Row) -> bool {
+        (0..self.width).all(|i| self.field(a, i) == self.field(b, i))
+    }
+
+    /// Whether the row holds a time of day (a `time` column or a date-time).
+    fn row_has_time(&self, row: &Row) -> bool {
+        self.get(row, "time").is_some() || self.get(row, "date").is_some_and(|d| d.contains(':'))
+    }
+
+    fn row_hash(&self, row: &Row) -> u64 {
+        use std::hash::{Hash, Hasher};
+        let mut h = std::collections::hash_map::DefaultHasher::new();
+        for i in 0..self.width {
+            self.field(row, i).unwrap_or("").hash(&mut h);
+        }
+        h.finish()
+    }
+
+    fn empty(delimiter: u8, sniffed: bool) -> Table {
         Table {
             columns: BTreeMap::new(),
             rows: Vec::new(),
             text: String::new(),
             bounds: Vec::new(),
+            width: 0,
+            delimiter,
+            sniffed,
+            units: BTreeMap::new(),
+            renamed: Vec::new(),
+            decimal_comma: Cell::new(false),
+            timestamps: Cell::new(false),
+            utc_converted: Cell::new(false),
         }
     }
+
+    /// States once, as a note on the file, whatever was recognised rather than written our
+    /// way: the delimiter, decimal commas, date-times, renamed columns and header units.
+    pub fn describe(&self, opts: &CsvOptions, ctx: &FileCtx) {
+        let mut parts = Vec::new();
+        let mut how = String::new();
+        if self.sniffed && self.delimiter != b',' {
+            how.push_str(match self.delimiter {
+                b';' => "semicolon-separated",
+                b'\t' => "tab-separated",
+                _ => "separated by an unusual character",
+            });
+        }
+        if self.decimal_comma.get() {
+            if how.is_empty() {
+                how.push_str("numbers");
+            }
+            how.push_str(" with decimal commas");
+        }
+        if !how.is_empty() {
+            parts.push(format!("read as {how}"));
+        }
+        if self.timestamps.get() {
+            let mut s =
+                "dates given with a time of day (each row counts on the local day it was measured"
+                    .to_string();
+            if self.utc_converted.get() {
+                match &opts.time_zone {
+                    Some(z) => s.push_str(&format!("; UTC times converted to {}", z.name())),
+                    None => s.push_str("; UTC times taken on their UTC day: set `input.time_zone` for the participants' local day"),
+                }
+            }
+            s.push(')');
+            parts.push(s);
+        }
+        for (written, col) in &self.renamed {
+            parts.push(format!("column `{written}` read as `{col}`"));
+        }
+        for (col, unit) in &self.units {
+            parts.push(format!("`{col}` in {unit} (from the header)"));
+        }
+        if !parts.is_empty() {
+            ctx.note(parts.join("; "));
+        }
+    }
+
+    /// Rows that repeat earlier rows on strong evidence: identical in every field and holding
+    /// a time of day, or part of a block of at least [`REPEATED_BLOCK_ROWS`] consecutive rows
+    /// that repeats an earlier block. Returns, per row, the line of the row it repeats.
+    pub fn repeated_rows(&self) -> Vec<Option<u64>> {
+        let n = self.rows.len();
+        let mut dup: Vec<Option<u64>> = vec![None; n];
+        let hashes: Vec<u64> = self.rows.iter().map(|r| self.row_hash(r)).collect();
+        let mut seen: HashMap<u64, Vec<usize>> = HashMap::with_capacity(n);
+        let mut i = 0;
+        while i < n {
+            if dup[i].is_some() {
+                i += 1;
+                continue;
+            }
+            let earlier = seen.get(&hashes[i]).cloned().unwrap_or_default();
+            let mut longest = (0usize, 0usize); // (block length, start of the earlier block)
+            for &j in earlier.iter().take(8) {
+                if !self.same_row(&self.rows[j], &self.rows[i]) {
+                    continue;
+                }
+                let mut len = 1;
+                while i + len < n
+                    && j + len < i
+                    && hashes[j + len] == hashes[i + len]
+                    && self.same_row(&self.rows[j + len], &self.rows[i + len])
+                {
+                    len += 1;
+                }
+                if len > longest.0 {
+                    longest = (len, j);
+                }
+            }
+            let (len, j) = longest;
+            if len >= REPEATED_BLOCK_ROWS {
+                for k in 0..len {
+                    dup[i + k] = Some(self.rows[j + k].line);
+                }
+                i += len;
+                continue;
+            }
+            if len >= 1 && self.row_has_time(&self.rows[i]) {
+                dup[i] = Some(self.rows[j].line);
+            } else {
+                seen.entry(hashes[i]).or_default().push(i);
+            }
+            i += 1;
+        }
+        dup
+    }
+}
+
+/// Consecutive identical rows that make a repeated block (a file pasted twice): fewer could be
+/// the same meal or walk on the same days by chance (common practice).
+pub const REPEATED_BLOCK_ROWS: usize = 3;
+
+/// Lowercases a header, takes off a unit in brackets (`Weight (lb)` → `weight`, `lb`) and
+/// writes every run of other characters as one `_` (`Body Weight` → `body_weight`).
+pub fn header_key(h: &str) -> (String, Option<String>) {
+    let h = h.trim().trim_start_matches('\u{feff}');
+    let mut unit = None;
+    let mut base = h;
+    for (open, close) in [('(', ')'), ('[', ']')] {
+        if let Some(rest) = h.strip_suffix(close)
+            && let Some(at) = rest.rfind(open)
+        {
+            let u = rest[at + 1..].trim().to_lowercase();
+            if !u.is_empty() {
+                unit = Some(u);
+            }
+            base = &rest[..at];
+            break;
+        }
+    }
+    let mut key = String::with_capacity(base.len());
+    for c in base.trim().chars().flat_map(char::to_lowercase) {
+        if c.is_alphanumeric() {
+            key.push(c);
+        } else if !key.ends_with('_') {
+            key.push('_');
+        }
+    }
+    let key = key.trim_matches('_').to_string();
+    (key, unit)
+}
+
+/// Picks the field delimiter of a file: of comma, semicolon and tab, the one that splits the
+/// first line into the most fields and splits the next lines (up to 20) into as many. `None`
+/// when the file has no line with any of them (one column: comma is as good as any).
+pub fn sniff_delimiter(text: &str) -> Option<u8> {
+    let lines: Vec<&str> = text
+        .lines()
+        .filter(|l| !l.trim().is_empty())
+        .take(21)
+        .collect();
+    let first = lines.first()?;
+    let count = |line: &str, d: u8| -> usize {
+        let mut quoted = false;
+        line.bytes()
+            .filter(|&b| {
+                if b == b'"' {
+                    quoted = !quoted;
+                }
+                !quoted && b == d
+            })
+            .count()
+    };
+    let mut best: Option<(usize, usize, u8)> = None; // (consistent lines, fields, delimiter)
+    for d in [b',', b';', b'\t'] {
+        let n = count(first, d);
+        if n == 0 {
+            continue;
+        }
+        let consistent = lines[1..].iter().filter(|l| count(l, d) == n).count();
+        let cand = (consistent, n, d);
+        // More consistent lines first, then more fields; comma wins ties (it comes first).
+        if best.is_none_or(|b| (cand.0, cand.1) > (b.0, b.1)) {
+            best = Some(cand);
+        }
+    }
+    best.map(|b| b.2)
 }
 
 /// Reads `text` as a CSV file of kind `spec`. Returns `None` (with an error pushed) when the
@@ -121,8 +450,12 @@ pub fn read_table(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Table> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    with_reader(opts.delimiter, text, |reader| {
-        read_records(reader, text, spec, opts, ctx, diags)
+    let (delimiter, sniffed) = match opts.delimiter {
+        Some(d) => (d, false),
+        None => (sniff_delimiter(text).unwrap_or(b','), true),
+    };
+    with_reader(delimiter, text, |reader| {
+        read_records(reader, text, spec, opts, delimiter, sniffed, ctx, diags)
     })
 }
 
@@ -178,18 +511,27 @@ fn read_records(
     text: &str,
     spec: &FileSpec,
     opts: &CsvOptions,
+    delimiter: u8,
+    sniffed: bool,
     ctx: &FileCtx,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Table> {
+    let delim_text = if delimiter == b'\t' {
+        "\t".to_string()
+    } else {
+        (delimiter as char).to_string()
+    };
     // One record buffer for the whole file (csv's record iterator clones every record).
     let mut rec = csv::StringRecord::new();
     let header = loop {
         match reader.read_record(&mut rec) {
-            Ok(false) => return Some(Table::empty()),
+            Ok(false) => return Some(Table::empty(delimiter, sniffed)),
             Err(e) => {
                 diags.push(
-                    ctx.error(format!("cannot read the header row ({e})"))
-                        .at(1, None),
+                    ctx.error(format!(
+                        "cannot read the header row ({e}); the file is not used"
+                    ))
+                    .at(1, None),
                 );
                 return None;
             }
@@ -232,26 +574,74 @@ fn read_records(
         );
         return None;
     }
-    let names: Vec<String> = header.iter().map(|h| h.trim().to_lowercase()).collect();
+    let written: Vec<String> = header.iter().map(|h| h.trim().to_string()).collect();
+    let names: Vec<String> = written.iter().map(|h| h.to_lowercase()).collect();
+    let user_map = opts.columns.get(spec.kind());
     let mut columns = BTreeMap::new();
+    let mut units = BTreeMap::new();
+    let mut renamed = Vec::new();
     let mut usable = true;
     let mut extra = Vec::new();
-    for (i, name) in names.iter().enumerate() {
-        let known = spec
-            .required
-            .iter()
-            .chain(spec.optional)
-            .find(|c| **c == name.as_str());
+    for (i, name) in written.iter().enumerate() {
+        let (key, unit) = header_key(name);
+        let ours = |k: &str| spec.all_columns().find(|c| *c == k);
+        let alias = |k: &str| {
+            spec.aliases
+                .iter()
+                .find(|(a, _)| *a == k)
+                .and_then(|(_, c)| ours(c))
+        };
+        // The program's mapping first, then our own names, then the built-in aliases.
+        let mapped = user_map.and_then(|m| m.get(&key)).and_then(|c| ours(c));
+        let mut known = mapped.or_else(|| ours(&key)).or_else(|| alias(&key));
+        let mut unit = unit;
+        // A unit written as a suffix (`weight_kg`, `duration_min`).
+        if known.is_none()
+            && unit.is_none()
+            && let Some((base, u)) = key.rsplit_once('_')
+            && let Some(c) = ours(base).or_else(|| alias(base))
+            && spec
+                .header_units
+                .iter()
+                .any(|(v, allowed, _)| *v == c && allowed.contains(&u))
+        {
+            known = Some(c);
+            unit = Some(u.to_string());
+        }
         match known {
             Some(c) => {
-                if columns.insert(*c, i).is_some() {
+                if columns.insert(c, i).is_some() {
                     diags.push(
-                        ctx.error(format!("column `{c}` appears twice in the header"))
-                            .at(header_line, Some(i as u64 + 1))
-                            .field(*c)
-                            .hint("keep one column of each name"),
+                        ctx.error(format!(
+                            "column `{c}` appears twice in the header; the file is not used"
+                        ))
+                        .at(header_line, Some(i as u64 + 1))
+                        .field(c)
+                        .hint("keep one column of each name (check `input.columns` in program.yaml)"),
                     );
                     usable = false;
+                }
+                if key != c && header_key(name).0 != c {
+                    renamed.push((name.clone(), c));
+                }
+                if let Some(u) = unit
+                    && let Some((_, allowed, _)) = spec.header_units.iter().find(|h| h.0 == c)
+                {
+                    if allowed.is_empty() || allowed.contains(&u.as_str()) {
+                        units.insert(c, u);
+                    } else {
+                        diags.push(
+                            ctx.error(format!(
+                                "unit `{u}` in the header of column `{name}` is not understood; the file is not used"
+                            ))
+                            .at(header_line, Some(i as u64 + 1))
+                            .field(c)
+                            .expected(format!("one of {}", allowed.iter().map(|a| format!("`{a}`")).collect::<Vec<_>>().join(", ")))
+                            .found(format!("`{name}`"))
+                            .hint("write the unit the values are in, or map the column in `input.columns`"),
+                        );
+                        usable = false;
+                    }
                 }
             }
             None => extra.push(
@@ -259,7 +649,10 @@ fn read_records(
                     .at(header_line, Some(i as u64 + 1))
                     .field(name.clone())
                     .expected(format!("columns {}", column_list(spec)))
-                    .hint("remove the column or check its spelling"),
+                    .hint(format!(
+                        "remove the column, check its spelling, or map it to one of ours in program.yaml: `input: {{ columns: {{ {}: {{ \"{name}\": COLUMN }} }} }}`",
+                        spec.kind()
+                    )),
             ),
         }
     }
@@ -267,27 +660,43 @@ fn read_records(
         .required
         .iter()
         .filter(|c| !columns.contains_key(**c))
+        // A unit in the value column's header stands for the unit column.
+        .filter(|c| {
+            !spec
+                .header_units
+                .iter()
+                .any(|(v, _, replaces)| *replaces == Some(**c) && units.contains_key(v))
+        })
         .copied()
         .collect();
     if !missing.is_empty() {
-        let looks_like_data = names.first().is_some_and(|f| {
-            NaiveDate::parse_from_str(f, &opts.date_format).is_ok() || parse_decimal(f).is_ok()
-        });
+        let looks_like_data = names
+            .first()
+            .is_some_and(|f| parse_when(f, opts).is_some() || parse_decimal(f).is_ok());
         let hint = if looks_like_data {
             format!(
                 "the first row looks like data; add a header row naming the columns, e.g. `{}`",
-                spec.required.join(&(opts.delimiter as char).to_string())
+                spec.required.join(&delim_text)
             )
-        } else if names.len() == 1 && opts.delimiter != b';' && names[0].contains(';') {
-            "the file seems to use `;` between fields; set `input: { delimiter: ';' }` in program.yaml"
+        } else if names.len() == 1 && delimiter != b';' && names[0].contains(';') {
+            "the file seems to use `;` between fields; remove `input.delimiter` from program.yaml to have it recognised, or set it to ';'"
                 .to_string()
         } else {
-            "name the columns in the first row; columns may come in any order".to_string()
+            format!(
+                "name the columns in the first row (any order), or map the file's own names to ours in program.yaml: `input: {{ columns: {{ {}: {{ \"Their name\": {} }} }} }}`",
+                spec.kind(),
+                missing[0]
+            )
         };
         let s = if missing.len() == 1 { "" } else { "s" };
         diags.push(
             ctx.error(format!(
-                "missing required column{s} {}; the file cannot be used",
+                "{}missing required column{s} {}; the file is not used",
+                if looks_like_data {
+                    "no header row: "
+                } else {
+                    ""
+                },
                 missing
                     .iter()
                     .map(|m| format!("`{m}`"))
@@ -296,10 +705,7 @@ fn read_records(
             ))
             .at(header_line, None)
             .expected(format!("columns {}", column_list(spec)))
-            .found(format!(
-                "`{}`",
-                names.join(&(opts.delimiter as char).to_string())
-            ))
+            .found(format!("`{}`", written.join(&delim_text)))
             .hint(hint),
         );
         usable = false;
@@ -314,6 +720,10 @@ fn read_records(
         rows: Vec::new(),
         text: String::with_capacity(text.len()),
         bounds: Vec::new(),
+        width: names.len(),
+        units,
+        renamed,
+        ..Table::empty(delimiter, sniffed)
     };
     let mut records = 0usize;
     loop {
@@ -377,12 +787,12 @@ fn read_records(
                             .take(MAX_CSV_COLUMNS + 1)
                             .map(str::trim)
                             .collect::<Vec<_>>()
-                            .join(&(opts.delimiter as char).to_string()),
+                            .join(&delim_text),
                         200
                     )
                 ));
             let split_decimal = rec.len() == names.len() + 1
-                && opts.delimiter == b','
+                && delimiter == b','
                 && rec
                     .iter()
                     .map(str::trim)
@@ -426,6 +836,113 @@ fn column_list(spec: &FileSpec) -> String {
         s.push_str(&format!(" (optional: {})", spec.optional.join(", ")));
     }
     s
+}
+
+/// A date as read from a cell: the local day, with the time of day when one was written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct When {
+    /// The local day of the measurement.
+    pub date: NaiveDate,
+    /// The local time of day, when written.
+    pub time: Option<NaiveTime>,
+    /// Whether a UTC time was converted to `input.time_zone`, or left on its UTC day.
+    pub from_utc: bool,
+}
+
+/// ISO-8601 date-times without an offset, tried after the program's format.
+const ISO_NAIVE: [&str; 4] = [
+    "%Y-%m-%dT%H:%M:%S%.f",
+    "%Y-%m-%d %H:%M:%S%.f",
+    "%Y-%m-%dT%H:%M",
+    "%Y-%m-%d %H:%M",
+];
+/// ISO-8601 date-times with an offset (`+01:00`, `+0100`); `Z` is read as `+00:00`.
+const ISO_OFFSET: [&str; 4] = [
+    "%Y-%m-%dT%H:%M:%S%.f%#z",
+    "%Y-%m-%d %H:%M:%S%.f%#z",
+    "%Y-%m-%dT%H:%M%#z",
+    "%Y-%m-%d %H:%M%#z",
+];
+
+/// Reads a date cell: a date in `input.date_format` (which may hold a time and an offset), or
+/// an ISO-8601 date or date-time with or without an offset.
+///
+/// The day of a measurement is its local day: a time with an offset other than UTC is taken on
+/// the day it was written (the offset is the measuring device's local one); a UTC time (`Z`,
+/// `+00:00`) is converted to `input.time_zone` when set (and otherwise kept on its UTC day); a
+/// time without an offset is local time already.
+pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
+    let s = s.trim();
+    let format = opts.date_format.as_str();
+    if format == "%Y-%m-%d"
+        && let Some(d) = iso_date(s)
+    {
+        return Some(When {
+            date: d,
+            time: None,
+            from_utc: false,
+        });
+    }
+    let local = |dt: NaiveDateTime| When {
+        date: dt.date(),
+        time: Some(dt.time()),
+        from_utc: false,
+    };
+    let stamped = |t: DateTime<FixedOffset>| {
+        if t.offset().fix().local_minus_utc() == 0 {
+            let dt = match &opts.time_zone {
+                Some(z) => z.local(t),
+                None => t.naive_local(),
+            };
+            When {
+                from_utc: true,
+                ..local(dt)
+            }
+        } else {
+            local(t.naive_local())
+        }
+    };
+    let zulu = s.strip_suffix(['Z', 'z']).map(|t| format!("{t}+00:00"));
+    let with_offset = zulu.as_deref().unwrap_or(s);
+    let has_time = format.contains("%H")
+        || format.contains("%I")
+        || format.contains("%T")
+        || format.contains("%R");
+    if has_time {
+        if let Ok(t) = DateTime::parse_from_str(with_offset, format) {
+            return Some(stamped(t));
+        }
+        if let Ok(dt) = NaiveDateTime::parse_from_str(s, format) {
+            return Some(local(dt));
+        }
+    } else if let Ok(d) = NaiveDate::parse_from_str(s, format) {
+        return Some(When {
+            date: d,
+            time: None,
+            from_utc: false,
+        });
+    }
+    // ISO 8601, whatever the program's format.
+    if s.len() >= 10 && s.as_bytes()[4] == b'-' {
+        if let Some(d) = iso_date(s) {
+            return Some(When {
+                date: d,
+                time: None,
+                from_utc: false,
+            });
+        }
+        for f in ISO_OFFSET {
+            if let Ok(t) = DateTime::parse_from_str(with_offset, f) {
+                return Some(stamped(t));
+            }
+        }
+        for f in ISO_NAIVE {
+            if let Ok(dt) = NaiveDateTime::parse_from_str(s, f) {
+                return Some(local(dt));
+            }
+        }
+    }
+    None
 }
 
 /// `NaiveDate::parse_from_str(s, format)`, with the common ISO form `YYYY-MM-DD` read directly
@@ -499,34 +1016,53 @@ impl Cells<'_> {
         }
     }
 
-    /// A required date.
+    /// A required date (see [`parse_when`]).
     pub fn date(&self, col: &str, diags: &mut Vec<Diagnostic>) -> Option<NaiveDate> {
+        self.when(col, diags).map(|w| w.date)
+    }
+
+    /// A required date, with its time of day when one was written (see [`parse_when`]).
+    pub fn when(&self, col: &str, diags: &mut Vec<Diagnostic>) -> Option<When> {
         let Some(s) = self.text(col) else {
             // Pushes the "is empty" warning.
             return self.required_text(col, diags).and(None);
         };
-        match parse_date(s, &self.opts.date_format) {
-            Ok(d) => Some(d),
-            Err(_) => {
-                let example = NaiveDate::from_ymd_opt(2026, 4, 1)
+        match parse_when(s, self.opts) {
+            Some(w) => {
+                if w.time.is_some() {
+                    self.table.timestamps.set(true);
+                }
+                if w.from_utc {
+                    self.table.utc_converted.set(true);
+                }
+                Some(w)
+            }
+            None => {
+                let probe = NaiveDate::from_ymd_opt(2026, 4, 1)
                     .expect("valid")
-                    .format(&self.opts.date_format)
-                    .to_string();
+                    .and_hms_opt(7, 30, 0)
+                    .expect("valid");
+                let example = probe.format(&self.opts.date_format).to_string();
                 let other = ["%Y-%m-%d", "%d/%m/%Y", "%m/%d/%Y", "%d.%m.%Y", "%Y/%m/%d"]
                     .into_iter()
                     .find(|f| {
-                        *f != self.opts.date_format && NaiveDate::parse_from_str(s, f).is_ok()
+                        *f != self.opts.date_format
+                            && (NaiveDate::parse_from_str(s, f).is_ok()
+                                || s.split_once(' ')
+                                    .is_some_and(|(d, _)| NaiveDate::parse_from_str(d, f).is_ok()))
                     });
                 let hint = match other {
                     Some(f) => format!(
-                        "the value reads as a date in the format `{f}`; write dates like `{example}` or set `input.date_format` in program.yaml"
+                        "the value reads as a date in the format `{f}`; write dates like `{example}` or set `input.date_format` in program.yaml (a time may follow, e.g. `{f} %H:%M`)"
                     ),
-                    None => format!("write dates like `{example}` and check the day exists"),
+                    None => format!(
+                        "write dates like `{example}` or as ISO 8601 date-times (`2026-04-01T07:30:00+02:00`), and check the day exists"
+                    ),
                 };
                 diags.push(
                     self.warn(col, "unreadable date; the row is dropped")
                         .expected(format!(
-                            "a date like `{example}` (format `{}`)",
+                            "a date like `{example}` (format `{}`) or an ISO 8601 date-time",
                             self.opts.date_format
                         ))
                         .found(format!("`{s}`"))
@@ -560,7 +1096,8 @@ impl Cells<'_> {
         }
     }
 
-    fn parse_number(
+    /// Reads `s` as the number of `col`, warning (with `consequence`) when it is not one.
+    pub fn parse_number(
         &self,
         col: &str,
         s: &str,
@@ -569,6 +1106,13 @@ impl Cells<'_> {
     ) -> Option<f64> {
         match parse_decimal(s) {
             Ok(v) => Some(v),
+            // Where the comma does not separate fields, it is the decimal separator of the
+            // locale the file was written in (`70,6`).
+            Err(NumberError::DecimalComma) if self.table.delimiter != b',' => {
+                let v = parse_decimal(&s.replacen(',', ".", 1)).ok()?;
+                self.table.decimal_comma.set(true);
+                Some(v)
+            }
             Err(e) => {
                 let what = match e {
                     NumberError::DecimalComma => "decimal comma",
@@ -594,6 +1138,8 @@ mod tests {
         name: "weights.csv",
         required: &["date", "weight", "unit"],
         optional: &["time", "source"],
+        aliases: &[],
+        header_units: &[],
     };
 
     fn read(text: &str, opts: &CsvOptions) -> (Option<Table>, Vec<Diagnostic>) {
@@ -699,23 +1245,12 @@ mod tests {
 
     #[test]
     fn semicolon_files_are_recognised() {
-        let (t, d) = read(
-            "date;weight;unit\n2026-04-01;72,5;kg\n",
-            &CsvOptions::default(),
-        );
-        assert!(t.is_none());
-        assert!(
-            d[0].hint.as_deref().unwrap().contains("delimiter: ';'"),
-            "{}",
-            d[0]
-        );
-        let opts = CsvOptions {
-            delimiter: b';',
-            ..Default::default()
-        };
+        // Recognised per file: the comma is then a decimal comma.
+        let opts = CsvOptions::default();
         let (t, d) = read("date;weight;unit\n2026-04-01;72,5;kg\n", &opts);
-        assert!(d.is_empty());
+        assert!(d.is_empty(), "{d:?}");
         let t = t.unwrap();
+        assert_eq!(t.delimiter, b';');
         let ctx = FileCtx::new("P1", "w.csv");
         let cells = Cells {
             table: &t,
@@ -724,10 +1259,147 @@ mod tests {
             opts: &opts,
         };
         let mut d = Vec::new();
-        assert_eq!(cells.number("weight", &mut d), None);
-        assert_eq!((d[0].line, d[0].column), (Some(2), Some(2)));
-        assert!(d[0].message.contains("decimal comma"), "{}", d[0]);
-        assert!(d[0].hint.as_deref().unwrap().contains("72.5"));
+        assert_eq!(cells.number("weight", &mut d), Some(72.5));
+        assert!(d.is_empty());
+        t.describe(&opts, &ctx);
+        assert_eq!(
+            ctx.take_notes()[0].message,
+            "read as semicolon-separated with decimal commas"
+        );
+        // A comma fixed in program.yaml on a semicolon file: the hint names the fix.
+        let comma = CsvOptions {
+            delimiter: Some(b','),
+            ..Default::default()
+        };
+        let (t, d) = read("date;weight;unit\n2026-04-01;72,5;kg\n", &comma);
+        assert!(t.is_none());
+        assert!(d[0].hint.as_deref().unwrap().contains("';'"), "{}", d[0]);
+    }
+
+    #[test]
+    fn delimiters_are_sniffed_from_the_first_lines() {
+        assert_eq!(sniff_delimiter("a,b,c\n1,2,3\n"), Some(b','));
+        assert_eq!(sniff_delimiter("a;b;c\n1;2,5;3\n"), Some(b';'));
+        assert_eq!(sniff_delimiter("a\tb\n1,5\t2\n"), Some(b'\t'));
+        // Header-less semicolon data with decimal commas: two semicolons per line beat one comma.
+        assert_eq!(
+            sniff_delimiter("2026-04-01;70,6;kg\n2026-04-02;70,4;kg\n"),
+            Some(b';')
+        );
+        // Quoted delimiters do not count.
+        assert_eq!(sniff_delimiter("\"a;b\",c\n\"x;y\",z\n"), Some(b','));
+        assert_eq!(sniff_delimiter("weight\n72\n"), None);
+    }
+
+    #[test]
+    fn headers_with_units_aliases_and_program_mappings() {
+        let spec = crate::participant::records::WEIGHTS;
+        let mut map = ColumnMap::new();
+        map.insert(header_key("Measured").0, "date".into());
+        let mut columns = BTreeMap::new();
+        columns.insert("weights".to_string(), map);
+        let opts = CsvOptions {
+            columns: Arc::new(columns),
+            ..Default::default()
+        };
+        let ctx = FileCtx::new("P1", "w.csv");
+        let mut d = Vec::new();
+        let t = read_table(
+            "Measured,Weight (lb),Device\n2026-04-01,160,scale\n",
+            &spec,
+            &opts,
+            &ctx,
+            &mut d,
+        )
+        .unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.header_unit("weight"), Some("lb"));
+        assert_eq!(t.get(&t.rows[0], "source"), Some("scale"));
+        t.describe(&opts, &ctx);
+        assert_eq!(
+            ctx.take_notes()[0].message,
+            "column `Measured` read as `date`; column `Device` read as `source`; `weight` in lb (from the header)"
+        );
+        // A unit as a suffix, and a unit the column cannot have.
+        let t = read_table(
+            "date,weight_kg\n2026-04-01,72\n",
+            &spec,
+            &opts,
+            &ctx,
+            &mut d,
+        )
+        .unwrap();
+        assert_eq!(t.header_unit("weight"), Some("kg"));
+        assert!(read_table("date,Weight (st)\n", &spec, &opts, &ctx, &mut d).is_none());
+        assert!(d[0].message.contains("unit `st`"), "{}", d[0]);
+        assert_eq!(
+            header_key(" Body-Weight [KG] "),
+            ("body_weight".into(), Some("kg".into()))
+        );
+    }
+
+    #[test]
+    fn date_times_give_the_local_day() {
+        let opts = CsvOptions::default();
+        let day = |s: &str, o: &CsvOptions| {
+            parse_when(s, o).map(|w| (w.date.to_string(), w.time.map(|t| t.to_string())))
+        };
+        let some = |d: &str, t: &str| Some((d.to_string(), Some(t.to_string())));
+        assert_eq!(
+            day("2027-03-01T07:12:00Z", &opts),
+            some("2027-03-01", "07:12:00")
+        );
+        assert_eq!(
+            day("2027-03-01 07:12", &opts),
+            some("2027-03-01", "07:12:00")
+        );
+        assert_eq!(
+            day("2027-03-01T23:30:00-05:00", &opts),
+            some("2027-03-01", "23:30:00")
+        );
+        assert_eq!(
+            day("2027-03-01T23:30:00.250+0100", &opts),
+            some("2027-03-01", "23:30:00.250")
+        );
+        assert_eq!(day("2027-03-01", &opts), Some(("2027-03-01".into(), None)));
+        // UTC times are converted to the participants' zone (DST applies: 2027-07-01 is
+        // UTC−4 in New York; 2027-01-15 is UTC−5).
+        let ny = CsvOptions {
+            time_zone: LocalZone::parse("America/New_York"),
+            ..Default::default()
+        };
+        assert_eq!(
+            day("2027-07-02T02:30:00Z", &ny),
+            some("2027-07-01", "22:30:00")
+        );
+        assert_eq!(
+            day("2027-01-15T04:30:00Z", &ny),
+            some("2027-01-14", "23:30:00")
+        );
+        // A time with its own offset stays on the day it was written.
+        assert_eq!(
+            day("2027-07-02T02:30:00+02:00", &ny),
+            some("2027-07-02", "02:30:00")
+        );
+        let fixed = CsvOptions {
+            time_zone: LocalZone::parse("+09:30"),
+            ..Default::default()
+        };
+        assert_eq!(
+            day("2027-07-01T20:00:00Z", &fixed),
+            some("2027-07-02", "05:30:00")
+        );
+        // A program format with a time.
+        let us = CsvOptions {
+            date_format: "%m/%d/%Y %I:%M %p".into(),
+            ..Default::default()
+        };
+        assert_eq!(
+            day("03/01/2027 07:12 PM", &us),
+            some("2027-03-01", "19:12:00")
+        );
+        assert!(parse_when("2027-02-30T07:00:00Z", &opts).is_none());
+        assert!(LocalZone::parse("Mars/Olympus").is_none());
     }
 
     #[test]
@@ -761,7 +1433,7 @@ mod tests {
         );
         assert_eq!(
             d[1].expected.as_deref(),
-            Some("a date like `2026-04-01` (format `%Y-%m-%d`)")
+            Some("a date like `2026-04-01` (format `%Y-%m-%d`) or an ISO 8601 date-time")
         );
     }
 
@@ -857,7 +1529,7 @@ mod tests {
         assert_eq!(t.get(&t.rows[0], "date"), Some("2026-05-01"));
         assert_eq!(t.get(&t.rows[0], "weight"), Some("70"));
         let semi = CsvOptions {
-            delimiter: b';',
+            delimiter: Some(b';'),
             ..CsvOptions::default()
         };
         let (t, d) = read("date;weight;unit\n2026-06-01;69,5;kg\n", &semi);

@@ -155,63 +155,50 @@ fn non_utf8_file_is_an_error_naming_line_and_byte() {
             ("profile.yaml", PROFILE.as_bytes()),
             (
                 "activity.csv",
-                b"date,activity,minutes\n2026-04-01,caf\xE9 walk,30\n",
+                b"date,activity,minutes\n2026-04-01,caf\x81 walk,30\n",
             ),
+            ("weights.csv", b"date,weight,unit\n2026-04-02,80,kg\n"),
         ],
     );
     let lp = load_participant(&p, &dir, as_of());
-    assert!(lp.data.is_none());
+    // The file is lost, not the participant.
+    assert_eq!(lp.data.as_ref().unwrap().weights.len(), 1);
+    assert!(lp.data.as_ref().unwrap().activity.is_empty());
     assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
     let e = &lp.diagnostics[0];
     assert_eq!(e.severity, Severity::Error);
     assert_eq!(e.file, "participants/P1/activity.csv");
     assert_eq!((e.line, e.column), (Some(2), Some(15)));
-    assert!(e.found.as_deref().unwrap().contains("0xE9"));
+    assert!(e.found.as_deref().unwrap().contains("0x81"));
+    assert!(
+        e.hint
+            .as_deref()
+            .unwrap()
+            .contains("save the file as UTF-8"),
+        "{e}"
+    );
     assert_eq!(e.participant.as_deref(), Some("P1"));
     // Files are hashed even when unusable: the manifest records what was read.
-    assert_eq!(lp.files.len(), 2);
+    assert_eq!(lp.files.len(), 3);
 }
 
 #[test]
-fn misspelt_input_files_are_pointed_out() {
+fn a_windows_1252_profile_is_read_with_a_warning() {
     let tmp = tempfile::tempdir().unwrap();
     let p = program(tmp.path());
-    let dir = participant(
-        tmp.path(),
-        "P1",
-        &[("profile.yaml", PROFILE.as_bytes()), ("weight.csv", b"")],
-    );
+    // "Zoë Müller" in Windows-1252: ë = 0xEB, ü = 0xFC.
+    let mut bytes = format!("{PROFILE}name: Zo").into_bytes();
+    bytes.extend_from_slice(b"\xEB M\xFCller\n");
+    let dir = participant(tmp.path(), "P1", &[("profile.yaml", &bytes)]);
     let lp = load_participant(&p, &dir, as_of());
-    assert!(lp.data.is_some());
-    assert_eq!(lp.diagnostics.len(), 1);
+    assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
+    assert_eq!(lp.diagnostics[0].severity, Severity::Warning);
     assert!(
+        lp.diagnostics[0].message.contains("Windows-1252"),
+        "{}",
         lp.diagnostics[0]
-            .message
-            .contains("`weight.csv` is not an input file")
     );
-}
-
-#[test]
-fn profile_errors_and_withdrawal_window() {
-    let tmp = tempfile::tempdir().unwrap();
-    let p = program(tmp.path());
-    let profile = format!("{PROFILE}withdrew: 2026-06-30\n");
-    let dir = participant(
-        tmp.path(),
-        "P1",
-        &[
-            ("profile.yaml", profile.as_bytes()),
-            (
-                "sessions.csv",
-                b"date,session,attended\n2026-06-30,10,yes\n2026-07-07,11,no\n",
-            ),
-        ],
-    );
-    let lp = load_participant(&p, &dir, as_of());
-    let data = lp.data.unwrap();
-    assert_eq!(data.sessions.len(), 1);
-    assert_eq!(lp.diagnostics.len(), 1);
-    assert_eq!(lp.diagnostics[0].line, Some(3));
+    assert_eq!(lp.data.unwrap().profile.name.as_deref(), Some("Zoë Müller"));
 }
 
 #[test]
@@ -254,7 +241,8 @@ fn links_fifos_and_directories_are_refused_naming_the_file() {
     );
     assert_eq!(errors[2].0, "participants/P1/weights.csv");
     assert!(errors[2].1.contains("symbolic link"), "{errors:?}");
-    assert!(loaded.data.is_none());
+    // Each bad file costs that file only: the participant stays usable (without data).
+    assert!(loaded.data.as_ref().unwrap().weights.is_empty());
     // Only the profile was read.
     let read: Vec<&str> = loaded.files.iter().map(|f| f.path.as_str()).collect();
     assert_eq!(read, vec!["participants/P1/profile.yaml"]);

@@ -231,13 +231,90 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
             );
         }
     }
-    let delim = def.input.delimiter;
-    if !delim.is_ascii() || matches!(delim, '"' | '\n' | '\r') || delim.is_ascii_alphanumeric() {
+    if let Some(delim) = def.input.delimiter
+        && (!delim.is_ascii()
+            || matches!(delim, '"' | '\n' | '\r')
+            || delim.is_ascii_alphanumeric())
+    {
         out.push(
             err("input.delimiter", "unusable field delimiter".into())
-                .expected("one ASCII punctuation or whitespace character such as `,`, `;` or a tab, not a quote or newline")
+                .expected("one ASCII punctuation or whitespace character such as `,`, `;` or a tab, not a quote or newline; or no `delimiter` key, to have it recognised per file")
                 .found(format!("{delim:?}")),
         );
+    }
+    if let Some(tz) = &def.input.time_zone
+        && crate::participant::table::LocalZone::parse(tz).is_none()
+    {
+        out.push(
+            err("input.time_zone", "unknown time zone".into())
+                .expected("an IANA time zone name such as `Europe/Berlin` or `America/Chicago`, `UTC`, or an offset such as `+01:00`")
+                .found(format!("`{tz}`")),
+        );
+    }
+    for (kind, map) in &def.input.columns {
+        let Some(spec) = crate::participant::records::ALL_FILES
+            .iter()
+            .find(|f| f.kind() == kind.as_str())
+        else {
+            out.push(
+                err(
+                    &format!("input.columns.{kind}"),
+                    format!("unknown file kind `{kind}`"),
+                )
+                .expected("one of weights, intake, activity, sessions, labs")
+                .found(format!("`{kind}`")),
+            );
+            continue;
+        };
+        for (written, ours) in map {
+            if !spec.all_columns().any(|c| c == ours.as_str()) {
+                out.push(
+                    err(
+                        &format!("input.columns.{kind}"),
+                        format!(
+                            "`{written}` is mapped to `{ours}`, which is not a column of {}",
+                            spec.name
+                        ),
+                    )
+                    .expected(format!(
+                        "one of {}",
+                        spec.all_columns().collect::<Vec<_>>().join(", ")
+                    ))
+                    .found(format!("`{ours}`")),
+                );
+            }
+        }
+    }
+    for (label, a) in &def.activities {
+        let key = format!("activities.{label}");
+        match (&a.compendium, a.met) {
+            (Some(_), Some(_)) | (None, None) => out.push(
+                err(
+                    &key,
+                    "give either `compendium` or `met` for a local activity label".into(),
+                )
+                .expected("`{ compendium: \"17190\" }` or `{ met: 4.5 }`"),
+            ),
+            (Some(code), None) => {
+                if crate::activities::by_compendium_or_code(code).is_none() {
+                    out.push(
+                        err(&key, format!("Compendium code `{code}` is not in the tool's activity table"))
+                            .expected("a 2011 Compendium code listed by the tool (e.g. `17190`), or give a `met` value instead")
+                            .found(format!("`{code}`")),
+                    );
+                }
+            }
+            (None, Some(m)) => {
+                let (lo, hi) = crate::participant::records::MET_RANGE;
+                if !(m.is_finite() && (lo..=hi).contains(&m)) {
+                    out.push(
+                        err(&key, "MET value out of range".into())
+                            .expected(format!("a MET value from {lo} to {hi}"))
+                            .found(m.to_string()),
+                    );
+                }
+            }
+        }
     }
     if let Err(why) = check_date_format(&def.input.date_format) {
         out.push(
@@ -251,18 +328,30 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
     out
 }
 
-/// Checks that `fmt` formats a date and parses it back to the same day.
+/// Checks that `fmt` formats a date (with a time of day and an offset, when it has them) and
+/// parses it back to the same day.
 pub fn check_date_format(fmt: &str) -> Result<(), String> {
+    use chrono::{DateTime, FixedOffset, NaiveDateTime, TimeZone};
     use std::fmt::Write;
     // A day with distinct day, month and year digits, so a format missing one of them cannot
-    // round-trip by accident.
-    let probe = NaiveDate::from_ymd_opt(2031, 12, 25).expect("valid date");
+    // round-trip by accident; a time in the afternoon so `%I` without `%p` is caught.
+    let offset = FixedOffset::east_opt(2 * 3600).expect("valid offset");
+    let probe = offset
+        .with_ymd_and_hms(2031, 12, 25, 19, 47, 0)
+        .single()
+        .expect("valid time");
     let mut s = String::new();
     if write!(s, "{}", probe.format(fmt)).is_err() {
         return Err("it contains an unknown `%` specifier".into());
     }
-    match NaiveDate::parse_from_str(&s, fmt) {
-        Ok(d) if d == probe => Ok(()),
+    let day = probe.date_naive();
+    let read = DateTime::parse_from_str(&s, fmt)
+        .map(|t| t.naive_local())
+        .or_else(|_| NaiveDateTime::parse_from_str(&s, fmt))
+        .map(|t| t.date())
+        .or_else(|_| NaiveDate::parse_from_str(&s, fmt));
+    match read {
+        Ok(d) if d == day => Ok(()),
         Ok(_) => Err("a date does not read back as itself".into()),
         Err(_) => Err("it does not give year, month and day".into()),
     }
@@ -461,7 +550,36 @@ modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
         assert_eq!(p.info.targets, Targets::default());
         assert_eq!(p.def.modules.len(), 4);
         assert_eq!(p.module_lines.get(&3), Some(&4));
-        assert_eq!(p.def.input.delimiter, ',');
+        assert_eq!(p.def.input.delimiter, None);
+    }
+
+    #[test]
+    fn input_and_activities_keys_are_checked() {
+        let good = format!(
+            "{GOOD}input:\n  time_zone: Europe/Berlin\n  columns:\n    weights: {{ \"Body Weight\": weight }}\nactivities:\n  \"Zumba Gold\": {{ met: 5.5 }}\n  \"Lunch walk\": {{ compendium: \"17190\" }}\n"
+        );
+        let p = parse_program(root(), &good).unwrap();
+        assert_eq!(p.def.input.time_zone.as_deref(), Some("Europe/Berlin"));
+        assert_eq!(p.def.activities.len(), 2);
+        let bad = format!(
+            "{GOOD}input:\n  time_zone: Mars/Olympus\n  columns:\n    weights: {{ \"Body Weight\": mass }}\n    meals: {{ a: kcal }}\nactivities:\n  zumba: {{ met: 50 }}\n  walk: {{ compendium: \"99999\" }}\n  both: {{ met: 3, compendium: \"17190\" }}\n"
+        );
+        let e = parse_program(root(), &bad).unwrap_err();
+        let messages: Vec<&str> = e.iter().map(|d| d.message.as_str()).collect();
+        assert_eq!(e.len(), 6, "{messages:#?}");
+        for words in [
+            "unknown time zone",
+            "`Body Weight` is mapped to `mass`, which is not a column of weights.csv",
+            "unknown file kind `meals`",
+            "MET value out of range",
+            "Compendium code `99999` is not in the tool's activity table",
+            "give either `compendium` or `met`",
+        ] {
+            assert!(
+                messages.iter().any(|m| m.contains(words)),
+                "{words}: {messages:#?}"
+            );
+        }
     }
 
     #[test]
@@ -579,6 +697,10 @@ input:
 
     #[test]
     fn date_formats_are_checked_by_round_trip() {
+        // Times and offsets are allowed; a 12-hour clock needs its AM/PM.
+        assert!(check_date_format("%Y-%m-%d %H:%M").is_ok());
+        assert!(check_date_format("%d.%m.%Y %H:%M:%S %z").is_ok());
+        assert!(check_date_format("%m/%d/%Y %I:%M %p").is_ok());
         assert!(check_date_format("%Y-%m-%d").is_ok());
         assert!(check_date_format("%d/%m/%Y").is_ok());
         assert!(check_date_format("%m/%d/%Y").is_ok());

@@ -42,6 +42,9 @@ pub struct ProgramDef {
     /// How input files are read.
     #[serde(default)]
     pub input: InputDef,
+    /// Local activity labels: label → Compendium code or MET value.
+    #[serde(default)]
+    pub activities: BTreeMap<String, ActivityAliasDef>,
     /// Thresholds of the participant report's guidance (every key optional).
     #[serde(default)]
     pub guidance: GuidanceDef,
@@ -243,29 +246,52 @@ impl Default for PrivacyDef {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct InputDef {
-    /// chrono format of dates in CSV files (default `%Y-%m-%d`).
+    /// chrono format of dates in CSV files (default `%Y-%m-%d`); may include a time of day
+    /// (`%Y-%m-%d %H:%M`) and an offset (`%z`). ISO 8601 dates and date-times are read whatever
+    /// the format.
     #[serde(default = "default_date_format")]
     pub date_format: String,
-    /// Field delimiter, one character (default `,`).
-    #[serde(default = "default_delimiter")]
-    pub delimiter: char,
+    /// Field delimiter, one character; when left out it is recognised per file (comma,
+    /// semicolon or tab).
+    #[serde(default)]
+    pub delimiter: Option<char>,
+    /// The participants' local time zone (an IANA name such as `Europe/Berlin`, `UTC`, or a
+    /// fixed offset `+01:00`): times stamped in UTC are converted to it to find the local day.
+    #[serde(default)]
+    pub time_zone: Option<String>,
+    /// Column names of exports whose headers differ from ours, per file kind:
+    /// `{ weights: { "Body Weight": weight } }`.
+    #[serde(default)]
+    pub columns: BTreeMap<String, BTreeMap<String, String>>,
 }
 
 fn default_date_format() -> String {
     "%Y-%m-%d".into()
 }
 
-fn default_delimiter() -> char {
-    ','
-}
-
 impl Default for InputDef {
     fn default() -> Self {
         InputDef {
             date_format: default_date_format(),
-            delimiter: default_delimiter(),
+            delimiter: None,
+            time_zone: None,
+            columns: BTreeMap::new(),
         }
     }
+}
+
+/// One entry of `activities:` — a local activity label and what it means: a Compendium code
+/// from the tool's table, or a MET value.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ActivityAliasDef {
+    /// A 2011 Compendium code from the tool's activity table (`17190`), or one of its
+    /// activity codes (`walking_3mph`).
+    #[serde(default)]
+    pub compendium: Option<String>,
+    /// A MET value of the program's own.
+    #[serde(default)]
+    pub met: Option<f64>,
 }
 
 /// A loaded and checked program.

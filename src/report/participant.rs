@@ -269,7 +269,11 @@ pub fn build(
     // Adherence.
     let (adherence_view, activity_chart) = match adherence {
         Some(a) => {
-            let (v, c) = adherence_section(a, p.targets.activity_minutes_per_week);
+            let (v, c) = adherence_section(
+                a,
+                p.targets.activity_minutes_per_week,
+                &activity_unread(diags),
+            );
             (Some(v), Some(c))
         }
         None => (None, None),
@@ -369,14 +373,25 @@ pub fn build(
     let data_notes = diags
         .iter()
         .map(|d| {
-            let sev = if d.severity == Severity::Error {
-                "Not used"
-            } else {
-                "Note"
-            };
             let file = d.file.rsplit('/').next().unwrap_or(&d.file);
             let line = d.line.map(|l| format!(", line {l}")).unwrap_or_default();
-            format!("{sev} — {file}{line}: {}", d.message)
+            if d.severity == Severity::Error {
+                // A whole file was left out: say what this report is missing.
+                let missing = match file {
+                    "weights.csv" => "weigh-ins",
+                    "intake.csv" => "food log",
+                    "activity.csv" => "activity log",
+                    "sessions.csv" => "session attendance",
+                    "labs.csv" => "lab results",
+                    _ => "data",
+                };
+                format!(
+                    "Not used — {file}{line}: {}. This report is without your {missing} from that file.",
+                    d.message
+                )
+            } else {
+                format!("Note — {file}{line}: {}", d.message)
+            }
         })
         .collect();
 
@@ -796,7 +811,45 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
     (view, chart)
 }
 
-fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
+/// What could not be read of the activity log: `None` when everything was; otherwise how
+/// many rows were dropped, or that the whole file was not used.
+#[derive(Debug, Clone, PartialEq)]
+enum ActivityUnread {
+    Nothing,
+    Rows(u64),
+    File,
+}
+
+fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
+    let mut rows = 0;
+    for d in diags.iter().filter(|d| d.file.ends_with("/activity.csv")) {
+        if d.severity == Severity::Error {
+            return ActivityUnread::File;
+        }
+        // Dropped rows, not duplicates (which were counted once) or ignored values.
+        if d.message.contains("dropped") && !d.message.contains("duplicate") {
+            // "unknown activity `x` in 12 rows (…)" counts its rows; other messages are one row.
+            let n = d
+                .message
+                .split_once("` in ")
+                .and_then(|(_, rest)| rest.split(' ').next())
+                .and_then(|n| n.parse::<u64>().ok())
+                .unwrap_or(1);
+            rows += n;
+        }
+    }
+    if rows == 0 {
+        ActivityUnread::Nothing
+    } else {
+        ActivityUnread::Rows(rows)
+    }
+}
+
+fn adherence_section(
+    a: &ModuleOutput,
+    target: f64,
+    unread: &ActivityUnread,
+) -> (AdherenceView, Chart) {
     let mut items = Vec::new();
     let f1 = |n: &str| a.scalar(n).map(|v| fmt::fixed(v, 1));
     if let Some(v) = f1("weigh_ins_per_week") {
@@ -806,9 +859,30 @@ fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
         items.push(Kv::new("Days with a food log per week", &v));
     }
     if let Some(v) = a.scalar("activity_minutes_per_week") {
+        // Never "0 minutes" when the log could not be read: say so instead.
+        let text = match unread {
+            ActivityUnread::File => {
+                "activity could not be read (activity.csv was not used; see the notes on your data)"
+                    .to_string()
+            }
+            ActivityUnread::Rows(n) if v == 0.0 => format!(
+                "activity could not be read ({n} row{} left out; see the notes on your data)",
+                if *n == 1 { "" } else { "s" }
+            ),
+            ActivityUnread::Rows(n) => format!(
+                "{} (target {}); {n} activity row{} could not be read and {} not counted",
+                fmt::fixed(v, 0),
+                fmt::fixed(target, 0),
+                if *n == 1 { "" } else { "s" },
+                if *n == 1 { "is" } else { "are" }
+            ),
+            ActivityUnread::Nothing => {
+                format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0))
+            }
+        };
         items.push(Kv::new(
             "Activity minutes per week (moderate-equivalent)",
-            &format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0)),
+            &text,
         ));
     }
     if let (Some(att), Some(off)) = (
@@ -885,4 +959,66 @@ fn adherence_section(a: &ModuleOutput, target: f64) -> (AdherenceView, Chart) {
         },
         chart,
     )
+}
+
+#[cfg(test)]
+mod activity_unread_tests {
+    use super::*;
+    use cohortpress_metric_api::Scalar;
+
+    fn adherence(minutes: f64) -> ModuleOutput {
+        ModuleOutput {
+            scalars: vec![Scalar {
+                name: "activity_minutes_per_week".into(),
+                value: Some(minutes),
+                unit: "min".into(),
+                lower: None,
+                upper: None,
+                label: "Activity minutes per week".into(),
+            }],
+            ..Default::default()
+        }
+    }
+
+    fn shown(minutes: f64, diags: &[Diagnostic]) -> String {
+        let (view, _) = adherence_section(&adherence(minutes), 150.0, &activity_unread(diags));
+        view.items
+            .iter()
+            .find(|k| k.label.starts_with("Activity minutes"))
+            .unwrap()
+            .value
+            .clone()
+    }
+
+    #[test]
+    fn dropped_activity_rows_are_not_shown_as_zero_minutes() {
+        let file = "participants/P1/activity.csv";
+        let unknown = Diagnostic::warning(
+            file,
+            "unknown activity `zumba gold` in 104 rows (first at line 2); without a MET value the rows are dropped",
+        );
+        assert_eq!(
+            shown(0.0, std::slice::from_ref(&unknown)),
+            "activity could not be read (104 rows left out; see the notes on your data)"
+        );
+        assert_eq!(
+            shown(90.0, &[unknown]),
+            "90 (target 150); 104 activity rows could not be read and are not counted"
+        );
+        let lost = Diagnostic::error(file, "no header row: missing required columns");
+        assert!(
+            shown(0.0, &[lost])
+                .starts_with("activity could not be read (activity.csv was not used")
+        );
+        // Duplicates and other files do not count; a clean log shows its minutes.
+        let dup = Diagnostic::warning(
+            file,
+            "identical to line 3 in every column, time included; the row is dropped as a duplicate",
+        );
+        let other = Diagnostic::warning(
+            "participants/P1/weights.csv",
+            "implausible weight; the row is dropped",
+        );
+        assert_eq!(shown(0.0, &[dup, other]), "0 (target 150)");
+    }
 }

@@ -22,7 +22,7 @@ const DEFECTS: &[(&str, &str)] = &[
     ),
     (
         "participants/duplicate-rows/intake.csv:4:",
-        "duplicate of line 3",
+        "identical to line 3 in every column, time included",
     ),
     ("participants/future-date/weights.csv:3:1:", "in the future"),
     (
@@ -47,7 +47,7 @@ const DEFECTS: &[(&str, &str)] = &[
     ),
     (
         "participants/unknown-activity/activity.csv:3:2:",
-        "unknown activity code",
+        "unknown activity `parkour drills` in 1 row",
     ),
     (
         "participants/wrong-field-count/weights.csv:3:",
@@ -63,25 +63,32 @@ fn assert_report(text: &str) {
             "no line with `{location}` and `{words}` in:\n{text}"
         );
     }
+    // Clean participants are counted, not listed.
     for clean in ["bom-crlf", "clean-a", "clean-b"] {
         assert!(
-            text.contains(&format!("\n{clean}: usable\n")),
-            "{clean} not usable:\n{text}"
+            !text.contains(&format!("\n{clean}:")),
+            "{clean} listed:\n{text}"
         );
     }
-    for unusable in [
-        "bad-height-unit",
-        "missing-column",
-        "missing-profile",
-        "non-utf8",
-    ] {
+    assert!(
+        text.contains("\n3 participants with nothing to report"),
+        "{text}"
+    );
+    // A file that cannot be used costs that file, not the participant.
+    for file_lost in ["missing-column", "non-utf8"] {
+        assert!(
+            text.contains(&format!("\n{file_lost}: usable (1 error)")),
+            "{file_lost}:\n{text}"
+        );
+    }
+    for unusable in ["bad-height-unit", "missing-profile"] {
         assert!(
             text.contains(&format!("\n{unusable}: not usable")),
             "{unusable}:\n{text}"
         );
     }
     assert!(
-        text.contains("checked 15 participants: 11 usable, 4 with errors; 5 errors, 8 warnings"),
+        text.contains("checked 15 participants: 13 usable, 2 with errors; 5 errors, 8 warnings"),
         "{text}"
     );
 }

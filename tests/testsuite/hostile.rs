@@ -448,13 +448,25 @@ fn links_and_special_files_are_never_read() {
         "{}",
         r.stderr
     );
-    assert!(r.stderr.contains("1 participants reported"), "{}", r.stderr);
-    // Only SG-004 is reported; nobody else has a report with its (or anyone's) data.
+    // A refused file costs that file only: SG-001 to SG-005 are reported (without the refused
+    // files); the linked folder SG-006 is not. Nobody has a report with another's data.
+    assert!(r.stderr.contains("5 participants reported"), "{}", r.stderr);
     let reports: Vec<String> = std::fs::read_dir(Path::new(&o).join("participants"))
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
-    assert_eq!(reports, ["SG-004.html"]);
+    let mut reports = reports;
+    reports.sort();
+    assert_eq!(
+        reports,
+        [
+            "SG-001.html",
+            "SG-002.html",
+            "SG-003.html",
+            "SG-004.html",
+            "SG-005.html"
+        ]
+    );
     let scratch = t.dir.parent().unwrap();
     assert_eq!(
         files_containing(scratch, secret.as_bytes()),
@@ -583,11 +595,12 @@ fn hostile_files_are_refused_within_a_memory_ceiling_and_the_others_are_reported
         "lists and mappings are nested more than 32 levels deep",
         "participants/SG-003/weights.csv:50002: the file has more than 50000 rows",
         "participants/SG-004/activity.csv:1: the header has 2000003 columns, more than the limit of 256",
-        "2 participants reported, 4 with errors",
+        // The oversized CSV files cost those files only; the profiles cost the participants.
+        "4 participants reported, 4 with errors",
     ] {
         assert!(r.stderr.contains(expected), "{expected}: {}", r.stderr);
     }
-    for id in ["SG-005", "SG-006"] {
+    for id in ["SG-003", "SG-004", "SG-005", "SG-006"] {
         assert!(
             Path::new(&o)
                 .join(format!("participants/{id}.html"))

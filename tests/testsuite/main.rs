@@ -2,7 +2,9 @@
 //! `cohortpress` binary on fixture programs (see `harness.rs`).
 
 mod check;
+mod exports;
 mod external;
+mod fhir;
 mod guidance;
 mod harness;
 mod hostile;

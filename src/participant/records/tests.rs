@@ -63,21 +63,37 @@ fn decimal_comma_in_a_quoted_field_is_named() {
 
 #[test]
 fn decimal_comma_with_semicolon_delimiter() {
-    let opts = CsvOptions {
-        delimiter: b';',
-        ..Default::default()
-    };
-    let mut diags = Vec::new();
-    let w = parse_weights(
-        "date;weight;unit\n2026-04-01;72,5;kg\n",
-        &opts,
-        &ctx("weights.csv"),
-        &window(),
-        &mut diags,
-    )
-    .unwrap();
-    assert!(w.is_empty());
-    assert!(diags[0].message.contains("decimal comma"));
+    // Set in program.yaml or recognised: the comma is then the decimal separator.
+    for opts in [
+        CsvOptions {
+            delimiter: Some(b';'),
+            ..Default::default()
+        },
+        CsvOptions::default(),
+    ] {
+        let mut diags = Vec::new();
+        let c = ctx("weights.csv");
+        let w = parse_weights(
+            "date;weight;unit\n2026-04-01;72,5;kg\n2026-04-02;72.4;kg\n",
+            &opts,
+            &c,
+            &window(),
+            &mut diags,
+        )
+        .unwrap();
+        assert!(diags.is_empty(), "{diags:#?}");
+        assert_eq!(w.len(), 2);
+        assert_eq!(w[0].weight.kg(), 72.5);
+        assert_eq!(w[1].weight.kg(), 72.4);
+        let notes = c.take_notes();
+        assert_eq!(notes.len(), 1, "{notes:?}");
+        let expected = if opts.delimiter.is_some() {
+            "read as numbers with decimal commas"
+        } else {
+            "read as semicolon-separated with decimal commas"
+        };
+        assert_eq!(notes[0].message, expected);
+    }
 }
 
 #[test]
@@ -141,60 +157,68 @@ fn a_real_change_is_not_taken_for_a_unit_error() {
 }
 
 #[test]
-fn duplicate_rows_are_dropped() {
-    let (w, diags) =
-        weights("date,weight,unit\n2026-04-01,72,kg\n2026-04-01,72.0,kg\n2026-04-01,72.2,kg\n");
+fn identical_rows_with_a_time_are_duplicates_without_one_they_count() {
+    // Identical in every column, time included: a duplicate.
+    let (w, diags) = weights(
+        "date,weight,unit,time\n2026-04-01,72,kg,07:10\n2026-04-01,72,kg,07:10\n2026-04-01,72,kg,19:00\n",
+    );
     assert_eq!(w.len(), 2);
-    assert_eq!(diags.len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
     assert_eq!(diags[0].line, Some(3));
-    assert!(diags[0].message.contains("duplicate of line 2"));
+    assert!(
+        diags[0].message.contains("identical to line 2"),
+        "{}",
+        diags[0]
+    );
+    // The same with the time in the date: a duplicate too.
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-01T07:10:00+02:00,72,kg\n2026-04-01T07:10:00+02:00,72,kg\n",
+    );
+    assert_eq!((w.len(), diags.len()), (1, 1), "{diags:#?}");
+    // Without a time there is no strong evidence: both weigh-ins are kept.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,72,kg\n2026-04-01,72,kg\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 2);
 }
 
 #[test]
-fn duplicates_are_found_among_several_rows_of_a_date_in_any_order() {
-    let (w, diags) = weights(
-        "date,weight,unit\n2026-04-01,72,kg\n2026-04-02,71.5,kg\n2026-04-01,72.2,kg\n2026-04-02,71.6,kg\n2026-04-01,72.20,kg\n2026-04-02,71.5,kg\n",
-    );
-    assert_eq!(w.len(), 4);
-    assert_eq!(diags.len(), 2, "{diags:#?}");
+fn a_repeated_block_is_dropped_with_one_warning() {
+    // Rows 2–5 pasted again as rows 6–9 (a file exported twice): one warning for the block.
+    let block = "2026-04-01,600\n2026-04-01,350\n2026-04-02,700\n2026-04-03,650\n";
+    let (v, diags) = intake(&format!("date,kcal\n{block}{block}2026-04-04,500\n"));
+    assert_eq!(diags.len(), 1, "{diags:#?}");
     assert_eq!(diags[0].line, Some(6));
     assert!(
-        diags[0].message.contains("duplicate of line 4"),
+        diags[0]
+            .message
+            .contains("lines 6–9 (4 rows) repeat lines 2–5"),
         "{}",
         diags[0]
     );
-    assert_eq!(diags[1].line, Some(7));
-    assert!(
-        diags[1].message.contains("duplicate of line 3"),
-        "{}",
-        diags[1]
-    );
+    let kcal: Vec<f64> = v.iter().map(|d| d.kcal).collect();
+    assert_eq!(kcal, vec![950.0, 700.0, 650.0, 500.0]);
+    // Two identical rows are not a block: a meal eaten twice counts twice.
+    let (v, diags) =
+        intake("date,kcal\n2026-04-01,600\n2026-04-01,350\n2026-04-01,600\n2026-04-01,350\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].kcal, 1900.0);
 }
 
 #[test]
-fn duplicates_among_many_rows_of_one_day_are_found() {
-    // More rows on one day than the pairwise comparison handles: the hashed path.
-    let mut text = String::from("date,kcal\n");
+fn a_long_repeated_block_on_one_day_is_found() {
+    // More rows on one day than the pairwise comparison of same-day rows handles.
+    let mut block = String::new();
     for i in 0..20 {
-        text.push_str(&format!("2026-04-01,{}\n", 100 + i));
+        block.push_str(&format!("2026-04-01,{}\n", 100 + i));
     }
-    text.push_str("2026-04-01,105\n2026-04-01,119\n2026-04-01,100.0\n");
-    let (v, diags) = intake(&text);
-    assert_eq!(diags.len(), 3, "{diags:#?}");
+    let (v, diags) = intake(&format!("date,kcal\n{block}{block}"));
+    assert_eq!(diags.len(), 1, "{diags:#?}");
     assert!(
-        diags[0].message.contains("duplicate of line 7"),
+        diags[0]
+            .message
+            .contains("lines 22–41 (20 rows) repeat lines 2–21"),
         "{}",
         diags[0]
-    );
-    assert!(
-        diags[1].message.contains("duplicate of line 21"),
-        "{}",
-        diags[1]
-    );
-    assert!(
-        diags[2].message.contains("duplicate of line 2"),
-        "{}",
-        diags[2]
     );
     // 100 + 101 + … + 119 = 2190 kcal
     assert_eq!(v[0].kcal, 2190.0);
@@ -340,10 +364,26 @@ fn implausible_daily_intake_is_dropped_after_summing() {
 }
 
 #[test]
-fn duplicate_intake_rows_are_not_summed() {
-    let (v, diags) = intake("date,kcal\n2026-04-01,600\n2026-04-01,600\n");
-    assert_eq!(v[0].kcal, 600.0);
-    assert_eq!(diags.len(), 1);
+fn identical_intake_rows_of_a_day_are_summed_with_a_note() {
+    let c = ctx("intake.csv");
+    let mut diags = Vec::new();
+    let v = parse_intake(
+        "date,kcal\n2026-04-01,600\n2026-04-01,600\n2026-04-02,500\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].kcal, 1200.0);
+    let notes = c.take_notes();
+    assert_eq!(notes.len(), 1);
+    assert!(
+        notes[0].message.contains("2026-04-01 (lines 2, 3)"),
+        "{}",
+        notes[0].message
+    );
 }
 
 fn activity(text: &str) -> (Vec<ActivityEntry>, Vec<Diagnostic>) {
@@ -376,16 +416,27 @@ fn activity_met_comes_from_the_table_or_the_file() {
 }
 
 #[test]
-fn unknown_activity_without_met_is_dropped_with_known_codes() {
-    let (v, diags) = activity("date,activity,minutes\n2026-04-01,power walking,30\n");
-    assert!(v.is_empty());
-    assert_eq!(diags.len(), 1);
-    assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(2)));
+fn unknown_activity_is_reported_once_per_label_with_suggestions() {
+    let (v, diags) = activity(
+        "date,activity,minutes\n2026-04-01,zumba-ish,30\n2026-04-02,zumba-ish,30\n2026-04-03,wlaking,20\n2026-04-04,brisk walk,30\n",
+    );
+    assert_eq!(v.len(), 1);
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+    // Sorted by label: `wlaking` then `zumba-ish`.
+    assert!(
+        diags[1]
+            .message
+            .contains("unknown activity `zumba-ish` in 2 rows (first at line 2)"),
+        "{}",
+        diags[1]
+    );
+    assert_eq!((diags[1].line, diags[1].column), (Some(2), Some(2)));
     let hint = diags[0].hint.as_deref().unwrap();
     assert!(
-        hint.contains("walking_3mph") && hint.contains("add a `met` column"),
+        hint.contains("nearest known labels: `walking") && hint.contains("add a `met` column"),
         "{hint}"
     );
+    assert!(hint.contains("activities:"), "{hint}");
 }
 
 #[test]
@@ -461,7 +512,7 @@ fn labs_are_converted_to_canonical_units() {
 fn missing_required_column_makes_the_file_unusable() {
     let mut diags = Vec::new();
     let out = parse_intake(
-        "date,calories\n2026-04-01,1800\n",
+        "date,energy_total\n2026-04-01,1800\n",
         &CsvOptions::default(),
         &ctx("intake.csv"),
         &window(),
@@ -471,7 +522,7 @@ fn missing_required_column_makes_the_file_unusable() {
     assert_eq!(diags.len(), 1, "{diags:#?}");
     assert_eq!(diags[0].severity, Severity::Error);
     assert!(diags[0].message.contains("`kcal`"));
-    assert!(diags[0].found.as_deref().unwrap().contains("calories"));
+    assert!(diags[0].found.as_deref().unwrap().contains("energy_total"));
 }
 
 #[test]

@@ -1,0 +1,684 @@
+//! `cohortpress import fhir`: HL7 FHIR R4 Patient and Observation resources (Bulk Data NDJSON,
+//! a Bundle, or single resources in JSON) written as participant folders: `profile.yaml`,
+//! `weights.csv` and `labs.csv`.
+//!
+//! Codes read (LOINC, system `http://loinc.org`), each confirmed against published FHIR
+//! material:
+//! - 29463-7 Body weight — FHIR R4 `observation-example` (id `example`, 185 `[lb_av]`).
+//! - 8302-2 Body height — Vital Signs IG STU1 (hl7.org/fhir/us/vitals/STU1), `height-example`.
+//! - 8280-0 Waist circumference at umbilicus by tape measure — vital-signs Observation examples
+//!   of the HL7 Europe discharge-report IG (build.fhir.org/ig/hl7-eu/discharge-report).
+//! - 85354-9 Blood pressure panel with components 8480-6 systolic and 8462-4 diastolic — FHIR R4
+//!   value set `observation-vitalsignresult` (hl7.org/fhir/R4/valueset-observation-vitalsignresult.html).
+//! - 4548-4 Hemoglobin A1c/Hemoglobin.total in Blood (UCUM `%`) — HL7 BSeR IG and HL7 Vulcan
+//!   schedule IG examples.
+//! - 1558-6 Fasting glucose [Mass/volume] in Serum or Plasma, and 14771-0 Fasting glucose
+//!   [Moles/volume] in Serum or Plasma — the CH EPREG IG example (14771-0) and LOINC code
+//!   listings (1558-6).
+//! - 59261-8 Hemoglobin A1c/Hemoglobin.total in Blood by IFCC protocol (mmol/mol) — from a
+//!   LOINC code listing (third-party), marked here as not confirmed in HL7 material.
+//!
+//! Units (UCUM): `kg`, `g`, `[lb_av]`, `cm`, `m`, `[in_i]`, `%`, `mmol/mol`, `mg/dL`, `mmol/L`,
+//! `mm[Hg]`.
+//!
+//! Ids: a FHIR Patient id becomes a participant id through a mapping file the user controls
+//! (`--ids MAP.csv` with columns `fhir_id,participant_id`); without one, a FHIR id that is
+//! already a plain id (letters, digits, `-`, `_`) is used as it is. Names are never copied.
+//! Existing participant folders are never changed: the import refuses them.
+
+use crate::exit_code;
+use crate::program::load::is_plain_id;
+use chrono::NaiveDate;
+use serde_json::Value;
+use std::collections::{BTreeMap, BTreeSet};
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
+
+/// LOINC system URI.
+pub const LOINC: &str = "http://loinc.org";
+/// Body weight.
+pub const BODY_WEIGHT: &str = "29463-7";
+/// Body height.
+pub const BODY_HEIGHT: &str = "8302-2";
+/// Waist circumference.
+pub const WAIST: &str = "8280-0";
+/// Blood pressure panel.
+pub const BP_PANEL: &str = "85354-9";
+/// Systolic blood pressure (component of the panel).
+pub const SYSTOLIC: &str = "8480-6";
+/// Diastolic blood pressure (component of the panel).
+pub const DIASTOLIC: &str = "8462-4";
+/// HbA1c, % (NGSP/DCCT).
+pub const HBA1C: &str = "4548-4";
+/// HbA1c, mmol/mol (IFCC); not confirmed in HL7 material (see the module documentation).
+pub const HBA1C_IFCC: &str = "59261-8";
+/// Fasting glucose, mass per volume.
+pub const FASTING_GLUCOSE_MASS: &str = "1558-6";
+/// Fasting glucose, moles per volume.
+pub const FASTING_GLUCOSE_MOLES: &str = "14771-0";
+
+/// What was read for one patient.
+#[derive(Debug, Default, Clone, PartialEq)]
+pub struct PatientData {
+    /// `female` / `male`, when given as such.
+    pub sex: Option<String>,
+    /// Birth date.
+    pub birth_date: Option<NaiveDate>,
+    /// Weigh-ins: (date, time HH:MM, value, `kg` | `lb`).
+    pub weights: Vec<(NaiveDate, Option<String>, f64, &'static str)>,
+    /// Heights: (date, value, `cm` | `in`).
+    pub heights: Vec<(NaiveDate, f64, &'static str)>,
+    /// Lab rows: (date, test, value, unit as our labs.csv writes it).
+    pub labs: Vec<(NaiveDate, &'static str, f64, &'static str)>,
+}
+
+/// The outcome of reading resources.
+#[derive(Debug, Default)]
+pub struct Imported {
+    /// By FHIR patient id.
+    pub patients: BTreeMap<String, PatientData>,
+    /// Problems, one line each (file, what, what was done).
+    pub problems: Vec<String>,
+    /// Observations read.
+    pub observations: usize,
+    /// Observations skipped (other codes, not final, unusable).
+    pub skipped: usize,
+}
+
+fn codes(concept: &Value) -> Vec<&str> {
+    concept["coding"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .filter(|c| c["system"].as_str() == Some(LOINC))
+        .filter_map(|c| c["code"].as_str())
+        .collect()
+}
+
+/// The local day and time of an Observation: `effectiveDateTime`, `effectiveInstant` or
+/// `effectivePeriod.start`, read as our CSV dates are (the day as written).
+fn effective(obs: &Value) -> Option<(NaiveDate, Option<String>)> {
+    let s = obs["effectiveDateTime"]
+        .as_str()
+        .or_else(|| obs["effectiveInstant"].as_str())
+        .or_else(|| obs["effectivePeriod"]["start"].as_str())?;
+    let opts = crate::participant::table::CsvOptions::default();
+    let w = crate::participant::table::parse_when(s, &opts)?;
+    Some((w.date, w.time.map(|t| t.format("%H:%M").to_string())))
+}
+
+/// `(value, UCUM code)` of a Quantity.
+fn quantity(q: &Value) -> Option<(f64, &str)> {
+    let v = q["value"].as_f64()?;
+    let code = q["code"].as_str().or_else(|| q["unit"].as_str())?;
+    Some((v, code))
+}
+
+/// The patient id an Observation is about (`Patient/ID`, or a `urn:uuid:` full URL of a Patient
+/// in the same Bundle).
+fn subject(obs: &Value, urls: &BTreeMap<String, String>) -> Option<String> {
+    let r = obs["subject"]["reference"].as_str()?;
+    if let Some(id) = r.strip_prefix("Patient/") {
+        return Some(id.split('/').next().unwrap_or(id).to_string());
+    }
+    urls.get(r).cloned()
+}
+
+impl Imported {
+    fn patient(&mut self, id: &str) -> &mut PatientData {
+        self.patients.entry(id.to_string()).or_default()
+    }
+
+    /// Reads one resource (Bundles are opened).
+    pub fn add(&mut self, r: &Value, urls: &BTreeMap<String, String>, origin: &str) {
+        match r["resourceType"].as_str() {
+            Some("Bundle") => {
+                let entries = r["entry"].as_array().cloned().unwrap_or_default();
+                let mut urls = urls.clone();
+                for e in &entries {
+                    if e["resource"]["resourceType"] == "Patient"
+                        && let (Some(u), Some(id)) =
+                            (e["fullUrl"].as_str(), e["resource"]["id"].as_str())
+                    {
+                        urls.insert(u.to_string(), id.to_string());
+                    }
+                }
+                for e in &entries {
+                    self.add(&e["resource"], &urls, origin);
+                }
+            }
+            Some("Patient") => {
+                let Some(id) = r["id"].as_str() else {
+                    self.problems
+                        .push(format!("{origin}: a Patient without an id is skipped"));
+                    return;
+                };
+                let p = self.patient(id);
+                p.sex = match r["gender"].as_str() {
+                    Some(g @ ("female" | "male")) => Some(g.to_string()),
+                    _ => None,
+                };
+                p.birth_date = r["birthDate"]
+                    .as_str()
+                    .and_then(|d| NaiveDate::parse_from_str(d, "%Y-%m-%d").ok());
+            }
+            Some("Observation") => self.observation(r, urls, origin),
+            _ => {}
+        }
+    }
+
+    fn observation(&mut self, obs: &Value, urls: &BTreeMap<String, String>, origin: &str) {
+        let id = obs["id"].as_str().unwrap_or("(no id)");
+        // Entered-in-error, cancelled and registered results are not results.
+        if !matches!(
+            obs["status"].as_str(),
+            Some("final" | "amended" | "corrected" | "preliminary")
+        ) {
+            self.skipped += 1;
+            return;
+        }
+        let cs = codes(&obs["code"]);
+        let known = [
+            BODY_WEIGHT,
+            BODY_HEIGHT,
+            WAIST,
+            BP_PANEL,
+            SYSTOLIC,
+            DIASTOLIC,
+            HBA1C,
+            HBA1C_IFCC,
+            FASTING_GLUCOSE_MASS,
+            FASTING_GLUCOSE_MOLES,
+        ];
+        let Some(&code) = cs.iter().find(|c| known.contains(c)) else {
+            self.skipped += 1;
+            return;
+        };
+        let (Some(patient), Some((date, time))) = (subject(obs, urls), effective(obs)) else {
+            self.problems.push(format!(
+                "{origin}: Observation {id} has no Patient subject or no readable effective date; it is skipped"
+            ));
+            self.skipped += 1;
+            return;
+        };
+        let q = quantity(&obs["valueQuantity"]);
+        let bad_unit = |this: &mut Self, unit: &str| {
+            this.problems.push(format!(
+                "{origin}: Observation {id} (LOINC {code}) has unit `{unit}`, which is not read; it is skipped"
+            ));
+            this.skipped += 1;
+        };
+        match code {
+            BODY_WEIGHT => match q {
+                Some((v, "kg")) => self.patient(&patient).weights.push((date, time, v, "kg")),
+                Some((v, "g")) => {
+                    self.patient(&patient)
+                        .weights
+                        .push((date, time, v / 1000.0, "kg"))
+                }
+                Some((v, "[lb_av]")) => self.patient(&patient).weights.push((date, time, v, "lb")),
+                Some((_, u)) => return bad_unit(self, u),
+                None => return bad_unit(self, "(none)"),
+            },
+            BODY_HEIGHT => match q {
+                Some((v, "cm")) => self.patient(&patient).heights.push((date, v, "cm")),
+                Some((v, "m")) => self.patient(&patient).heights.push((date, v * 100.0, "cm")),
+                Some((v, "[in_i]")) => self.patient(&patient).heights.push((date, v, "in")),
+                Some((_, u)) => return bad_unit(self, u),
+                None => return bad_unit(self, "(none)"),
+            },
+            WAIST => match q {
+                Some((v, "cm")) => self.patient(&patient).labs.push((date, "waist", v, "cm")),
+                Some((v, "[in_i]")) => self.patient(&patient).labs.push((date, "waist", v, "in")),
+                Some((_, u)) => return bad_unit(self, u),
+                None => return bad_unit(self, "(none)"),
+            },
+            HBA1C | HBA1C_IFCC => match q {
+                Some((v, "%")) => self.patient(&patient).labs.push((date, "hba1c", v, "%")),
+                Some((v, "mmol/mol")) => self
+                    .patient(&patient)
+                    .labs
+                    .push((date, "hba1c", v, "mmol/mol")),
+                Some((_, u)) => return bad_unit(self, u),
+                None => return bad_unit(self, "(none)"),
+            },
+            FASTING_GLUCOSE_MASS | FASTING_GLUCOSE_MOLES => match q {
+                Some((v, "mg/dL")) => {
+                    self.patient(&patient)
+                        .labs
+                        .push((date, "fasting_glucose", v, "mg/dL"))
+                }
+                Some((v, "mmol/L")) => {
+                    self.patient(&patient)
+                        .labs
+                        .push((date, "fasting_glucose", v, "mmol/L"))
+                }
+                Some((_, u)) => return bad_unit(self, u),
+                None => return bad_unit(self, "(none)"),
+            },
+            SYSTOLIC | DIASTOLIC => match q {
+                Some((v, "mm[Hg]" | "mmHg")) => {
+                    let test = if code == SYSTOLIC {
+                        "systolic_bp"
+                    } else {
+                        "diastolic_bp"
+                    };
+                    self.patient(&patient).labs.push((date, test, v, "mmHg"))
+                }
+                Some((_, u)) => return bad_unit(self, u),
+                None => return bad_unit(self, "(none)"),
+            },
+            BP_PANEL => {
+                let mut found = 0;
+                for c in obs["component"].as_array().into_iter().flatten() {
+                    let cc = codes(&c["code"]);
+                    let test = if cc.contains(&SYSTOLIC) {
+                        "systolic_bp"
+                    } else if cc.contains(&DIASTOLIC) {
+                        "diastolic_bp"
+                    } else {
+                        continue;
+                    };
+                    match quantity(&c["valueQuantity"]) {
+                        Some((v, "mm[Hg]" | "mmHg")) => {
+                            self.patient(&patient).labs.push((date, test, v, "mmHg"));
+                            found += 1;
+                        }
+                        Some((_, u)) => bad_unit(self, u),
+                        None => {}
+                    }
+                }
+                if found == 0 {
+                    self.problems.push(format!(
+                        "{origin}: blood pressure panel {id} has no systolic or diastolic component in mm[Hg]; it is skipped"
+                    ));
+                    self.skipped += 1;
+                    return;
+                }
+            }
+            _ => unreachable!("only known codes reach here"),
+        }
+        self.observations += 1;
+    }
+
+    /// Reads a file: a JSON resource (a Bundle or one resource), or NDJSON (one per line).
+    pub fn read_file(&mut self, path: &Path) -> Result<(), String> {
+        let bytes = crate::limits::read_input(path)
+            .map_err(|e| format!("{}: cannot read the file ({e})", path.display()))?;
+        let text = std::str::from_utf8(&bytes)
+            .map_err(|_| format!("{}: the file is not UTF-8 JSON", path.display()))?;
+        let origin = path.display().to_string();
+        let none = BTreeMap::new();
+        match serde_json::from_str::<Value>(text) {
+            Ok(v) if v.is_object() => {
+                self.add(&v, &none, &origin);
+                Ok(())
+            }
+            _ => {
+                for (i, line) in text.lines().enumerate() {
+                    if line.trim().is_empty() {
+                        continue;
+                    }
+                    match serde_json::from_str::<Value>(line) {
+                        Ok(v) => self.add(&v, &none, &format!("{origin}:{}", i + 1)),
+                        Err(e) => {
+                            return Err(format!(
+                                "{origin}:{}: neither a JSON resource nor NDJSON ({e})",
+                                i + 1
+                            ));
+                        }
+                    }
+                }
+                Ok(())
+            }
+        }
+    }
+}
+
+/// Reads an id mapping file: a header with `fhir_id` and `participant_id`, then one row per
+/// patient. Participant ids must be plain ids.
+pub fn read_id_map(path: &Path) -> Result<BTreeMap<String, String>, String> {
+    let bytes = crate::limits::read_input(path)
+        .map_err(|e| format!("{}: cannot read the file ({e})", path.display()))?;
+    let text = String::from_utf8(bytes)
+        .map_err(|_| format!("{}: the file is not UTF-8", path.display()))?;
+    let mut lines = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| !l.trim().is_empty());
+    let (_, header) = lines
+        .next()
+        .ok_or_else(|| format!("{}: the file is empty", path.display()))?;
+    let delim = crate::participant::table::sniff_delimiter(&text).unwrap_or(b',') as char;
+    let cols: Vec<String> = header
+        .split(delim)
+        .map(|h| h.trim().trim_start_matches('\u{feff}').to_lowercase())
+        .collect();
+    let (Some(f), Some(p)) = (
+        cols.iter().position(|c| c == "fhir_id"),
+        cols.iter().position(|c| c == "participant_id"),
+    ) else {
+        return Err(format!(
+            "{}:1: the header must name the columns `fhir_id` and `participant_id`",
+            path.display()
+        ));
+    };
+    let mut map = BTreeMap::new();
+    let mut seen = BTreeSet::new();
+    for (i, line) in lines {
+        let fields: Vec<&str> = line.split(delim).map(str::trim).collect();
+        let (Some(fid), Some(pid)) = (fields.get(f), fields.get(p)) else {
+            return Err(format!("{}:{}: a value is missing", path.display(), i + 1));
+        };
+        if !is_plain_id(pid) {
+            return Err(format!(
+                "{}:{}: `{pid}` is not a usable participant id (letters, digits, `-`, `_`; at most 64)",
+                path.display(),
+                i + 1
+            ));
+        }
+        if !seen.insert(pid.to_string()) {
+            return Err(format!(
+                "{}:{}: participant id `{pid}` is given to two FHIR ids",
+                path.display(),
+                i + 1
+            ));
+        }
+        map.insert(fid.to_string(), pid.to_string());
+    }
+    Ok(map)
+}
+
+/// The files of one participant folder, as text.
+pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String)> {
+    let mut files = Vec::new();
+    // Profile: enrolment is the first observation's day (FHIR has no enrolment date; check it).
+    let first = p
+        .weights
+        .iter()
+        .map(|w| w.0)
+        .chain(p.labs.iter().map(|l| l.0))
+        .chain(p.heights.iter().map(|h| h.0))
+        .min();
+    let mut profile = format!(
+        "# Imported from FHIR. `enrolled` is the day of the first observation: check it.\nid: {id}\n"
+    );
+    match &p.sex {
+        Some(s) => writeln!(profile, "sex: {s}").expect("string"),
+        None => profile.push_str("# sex: female | male   (not in the FHIR Patient: fill it in)\n"),
+    }
+    match p.birth_date {
+        Some(b) => writeln!(profile, "birth_date: {b}").expect("string"),
+        None => {
+            profile.push_str("# birth_date: YYYY-MM-DD   (not in the FHIR Patient: fill it in)\n")
+        }
+    }
+    // The latest height.
+    match p.heights.iter().max_by_key(|h| h.0) {
+        Some((_, v, u)) => writeln!(profile, "height: {v} {u}").expect("string"),
+        None => profile.push_str("# height: 170 cm   (no body height observation: fill it in)\n"),
+    }
+    if let Some(d) = first {
+        writeln!(profile, "enrolled: {d}").expect("string");
+    }
+    files.push(("profile.yaml", profile));
+    if !p.weights.is_empty() {
+        let mut w = p.weights.clone();
+        w.sort_by(|a, b| (a.0, &a.1).cmp(&(b.0, &b.1)));
+        let mut t = String::from("date,time,weight,unit,source\n");
+        for (d, time, v, u) in w {
+            writeln!(t, "{d},{},{v},{u},fhir", time.unwrap_or_default()).expect("string");
+        }
+        files.push(("weights.csv", t));
+    }
+    if !p.labs.is_empty() {
+        let mut l = p.labs.clone();
+        l.sort_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+        let mut t = String::from("date,test,value,unit\n");
+        for (d, test, v, u) in l {
+            writeln!(t, "{d},{test},{v},{u}").expect("string");
+        }
+        files.push(("labs.csv", t));
+    }
+    files
+}
+
+/// `cohortpress import fhir FILE… --out PROGRAM [--ids MAP.csv]`: writes one participant
+/// folder per patient under `PROGRAM/participants/`. Returns the exit code.
+pub fn import_command(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> i32 {
+    match import(files, out, ids) {
+        Ok(summary) => {
+            println!("{summary}");
+            exit_code::SUCCESS
+        }
+        Err((code, msg)) => {
+            eprintln!("error: {msg}");
+            code
+        }
+    }
+}
+
+/// The import; `Err((exit code, message))` when nothing was written.
+pub fn import(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> Result<String, (i32, String)> {
+    let usage = |m: String| (exit_code::USAGE, m);
+    let map = ids.map(read_id_map).transpose().map_err(usage)?;
+    let mut imp = Imported::default();
+    for f in files {
+        imp.read_file(f).map_err(usage)?;
+    }
+    let base = out.join(crate::participant::PARTICIPANTS_DIR);
+    // Every participant id first: nothing is written when one cannot be used.
+    let mut plan = Vec::new();
+    let mut unmapped = Vec::new();
+    for (fid, data) in &imp.patients {
+        let pid = match &map {
+            Some(m) => match m.get(fid) {
+                Some(p) => p.clone(),
+                None => {
+                    unmapped.push(fid.clone());
+                    continue;
+                }
+            },
+            None if is_plain_id(fid) => fid.clone(),
+            None => {
+                return Err(usage(format!(
+                    "FHIR patient id `{fid}` is not a usable participant id; give `--ids MAP.csv` with columns fhir_id,participant_id"
+                )));
+            }
+        };
+        let dir = base.join(&pid);
+        if dir.exists() {
+            return Err((
+                exit_code::OUTPUT_FAILED,
+                format!(
+                    "{} already exists; the import never changes existing participant folders (import into a new program folder, or move it away)",
+                    dir.display()
+                ),
+            ));
+        }
+        plan.push((pid, data));
+    }
+    // Written into a staging folder beside the participants, then moved into place one folder
+    // at a time (a rename), so no participant folder is ever half-written.
+    let staging = out.join(".cohortpress-import.staging");
+    let io = |e: std::io::Error| {
+        (
+            exit_code::OUTPUT_FAILED,
+            format!("cannot write the import ({e})"),
+        )
+    };
+    if staging.exists() {
+        std::fs::remove_dir_all(&staging).map_err(io)?;
+    }
+    std::fs::create_dir_all(&staging).map_err(io)?;
+    std::fs::create_dir_all(&base).map_err(io)?;
+    for (pid, data) in &plan {
+        let d = staging.join(pid);
+        std::fs::create_dir(&d).map_err(io)?;
+        for (name, text) in participant_files(pid, data) {
+            std::fs::write(d.join(name), text).map_err(io)?;
+        }
+    }
+    for (pid, _) in &plan {
+        std::fs::rename(staging.join(pid), base.join(pid)).map_err(io)?;
+    }
+    std::fs::remove_dir_all(&staging).map_err(io)?;
+    let mut s = format!(
+        "imported {} participant{} ({} observations; {} skipped) into {}",
+        plan.len(),
+        if plan.len() == 1 { "" } else { "s" },
+        imp.observations,
+        imp.skipped,
+        base.display()
+    );
+    if !unmapped.is_empty() {
+        write!(
+            s,
+            "\n{} FHIR patient{} not in the id map {} left out: {}",
+            unmapped.len(),
+            if unmapped.len() == 1 { "" } else { "s" },
+            if unmapped.len() == 1 { "was" } else { "were" },
+            unmapped.join(", ")
+        )
+        .expect("string");
+    }
+    for p in &imp.problems {
+        write!(s, "\nskipped: {p}").expect("string");
+    }
+    if !out.join("program.yaml").exists() {
+        s.push_str("\nthe folder has no program.yaml yet: write one (see the README) before `check` or `run`");
+    }
+    s.push_str("\nnext: `cohortpress check` the program, and check each profile's `enrolled` date");
+    Ok(s)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use serde_json::json;
+
+    /// A Bundle written from the structure of the specification's examples: a Patient, a body
+    /// weight in `[lb_av]` (as R4 `observation-example`), a height in cm, a blood pressure
+    /// panel with its two components in `mm[Hg]` (as R4 `observation-example-bloodpressure`),
+    /// an HbA1c in %, a fasting glucose in mg/dL, a waist in `[in_i]`, and things to skip.
+    fn bundle() -> Value {
+        let obs = |id: &str, code: &str, when: &str, value: Value| {
+            let mut o = json!({
+                "resourceType": "Observation", "id": id, "status": "final",
+                "category": [{"coding": [{"system": "http://terminology.hl7.org/CodeSystem/observation-category", "code": "vital-signs"}]}],
+                "code": {"coding": [{"system": LOINC, "code": code}]},
+                "subject": {"reference": "urn:uuid:7c1b2f7e-0000-4000-8000-000000000001"},
+                "effectiveDateTime": when
+            });
+            if !value.is_null() {
+                o["valueQuantity"] = value;
+            }
+            json!({"fullUrl": format!("urn:uuid:{id}"), "resource": o})
+        };
+        let ucum = |v: f64, code: &str| json!({"value": v, "unit": code, "system": "http://unitsofmeasure.org", "code": code});
+        let mut bp = obs("bp1", BP_PANEL, "2027-03-02T09:30:00+01:00", Value::Null);
+        bp["resource"]["component"] = json!([
+            {"code": {"coding": [{"system": LOINC, "code": SYSTOLIC}]}, "valueQuantity": ucum(128.0, "mm[Hg]")},
+            {"code": {"coding": [{"system": LOINC, "code": DIASTOLIC}]}, "valueQuantity": ucum(82.0, "mm[Hg]")}
+        ]);
+        let mut wrong = obs("w-err", BODY_WEIGHT, "2027-03-03", ucum(999.0, "kg"));
+        wrong["resource"]["status"] = json!("entered-in-error");
+        json!({
+            "resourceType": "Bundle", "type": "collection",
+            "entry": [
+                {"fullUrl": "urn:uuid:7c1b2f7e-0000-4000-8000-000000000001",
+                 "resource": {"resourceType": "Patient", "id": "7c1b2f7e", "gender": "female",
+                              "birthDate": "1980-05-17", "name": [{"family": "Example"}]}},
+                obs("w1", BODY_WEIGHT, "2027-03-01T07:12:00+01:00", ucum(185.0, "[lb_av]")),
+                obs("w2", BODY_WEIGHT, "2027-03-08", ucum(83.1, "kg")),
+                obs("h1", BODY_HEIGHT, "2027-03-01", ucum(170.2, "cm")),
+                bp,
+                obs("a1", HBA1C, "2027-03-02", ucum(5.9, "%")),
+                obs("g1", FASTING_GLUCOSE_MASS, "2027-03-02", ucum(101.0, "mg/dL")),
+                obs("wc", WAIST, "2027-03-02", ucum(36.5, "[in_i]")),
+                obs("st", BODY_WEIGHT, "2027-03-09", ucum(13.0, "[stone_av]")),
+                obs("hr", "8867-4", "2027-03-02", ucum(64.0, "/min")),
+                wrong
+            ]
+        })
+    }
+
+    #[test]
+    fn a_bundle_gives_profile_weights_and_labs() {
+        let mut imp = Imported::default();
+        imp.add(&bundle(), &BTreeMap::new(), "b.json");
+        assert_eq!(imp.observations, 7);
+        // Heart rate (not read), stone (unit not read), entered-in-error.
+        assert_eq!(imp.skipped, 3);
+        assert_eq!(imp.problems.len(), 1, "{:?}", imp.problems);
+        assert!(imp.problems[0].contains("[stone_av]"));
+        let files = participant_files("LW-0001", &imp.patients["7c1b2f7e"]);
+        let get = |n: &str| files.iter().find(|f| f.0 == n).unwrap().1.clone();
+        let profile = get("profile.yaml");
+        assert!(
+            profile.contains(
+                "sex: female\nbirth_date: 1980-05-17\nheight: 170.2 cm\nenrolled: 2027-03-01\n"
+            ),
+            "{profile}"
+        );
+        assert!(!profile.contains("Example"), "names are never copied");
+        assert_eq!(
+            get("weights.csv"),
+            "date,time,weight,unit,source\n2027-03-01,07:12,185,lb,fhir\n2027-03-08,,83.1,kg,fhir\n"
+        );
+        assert_eq!(
+            get("labs.csv"),
+            "date,test,value,unit\n2027-03-02,diastolic_bp,82,mmHg\n2027-03-02,fasting_glucose,101,mg/dL\n2027-03-02,hba1c,5.9,%\n2027-03-02,systolic_bp,128,mmHg\n2027-03-02,waist,36.5,in\n"
+        );
+    }
+
+    #[test]
+    fn ndjson_and_id_maps() {
+        let tmp = tempfile::tempdir().unwrap();
+        let nd = tmp.path().join("Observation.ndjson");
+        let lines = [
+            json!({"resourceType": "Patient", "id": "p-1", "gender": "male", "birthDate": "1970-01-02"}),
+            json!({"resourceType": "Observation", "id": "o1", "status": "final",
+                   "code": {"coding": [{"system": LOINC, "code": BODY_WEIGHT}]},
+                   "subject": {"reference": "Patient/p-1"},
+                   "effectiveDateTime": "2027-03-01T06:00:00Z",
+                   "valueQuantity": {"value": 90.5, "code": "kg", "system": "http://unitsofmeasure.org"}}),
+            json!({"resourceType": "Observation", "id": "o2", "status": "final",
+                   "code": {"coding": [{"system": LOINC, "code": FASTING_GLUCOSE_MOLES}]},
+                   "subject": {"reference": "Patient/p-1"},
+                   "effectiveDateTime": "2027-03-02",
+                   "valueQuantity": {"value": 5.4, "code": "mmol/L"}}),
+        ];
+        let text: String = lines.iter().map(|l| format!("{l}\n")).collect();
+        std::fs::write(&nd, text).unwrap();
+        let map = tmp.path().join("ids.csv");
+        std::fs::write(&map, "fhir_id,participant_id\np-1,NV-007\n").unwrap();
+        let out = tmp.path().join("prog");
+        let s = import(std::slice::from_ref(&nd), &out, Some(&map)).unwrap();
+        assert!(
+            s.starts_with("imported 1 participant (2 observations; 0 skipped)"),
+            "{s}"
+        );
+        let dir = out.join("participants/NV-007");
+        assert_eq!(
+            std::fs::read_to_string(dir.join("labs.csv")).unwrap(),
+            "date,test,value,unit\n2027-03-02,fasting_glucose,5.4,mmol/L\n"
+        );
+        // A second import never touches the existing folder.
+        let before = std::fs::read_to_string(dir.join("weights.csv")).unwrap();
+        let e = import(std::slice::from_ref(&nd), &out, Some(&map)).unwrap_err();
+        assert_eq!(e.0, exit_code::OUTPUT_FAILED);
+        assert_eq!(
+            std::fs::read_to_string(dir.join("weights.csv")).unwrap(),
+            before
+        );
+        // Without a map a plain FHIR id is used as it is; a map must name its columns.
+        std::fs::write(&map, "fhir,id\np-1,X\n").unwrap();
+        assert!(
+            import(&[nd], &out, Some(&map))
+                .unwrap_err()
+                .1
+                .contains("fhir_id")
+        );
+    }
+}

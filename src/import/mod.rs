@@ -1,0 +1,3 @@
+//! Importers: other formats written into participant folders in our format.
+
+pub mod fhir;

@@ -1,0 +1,184 @@
+//! The FHIR importer round trip: a program's weigh-ins, heights and labs exported as a FHIR R4
+//! Bundle (written here from the specification's structure), imported with
+//! `cohortpress import fhir`, and run: the metrics are the same as from the original files.
+
+use crate::harness::ProgramTest;
+use chrono::NaiveDate;
+use cohortpress::import::fhir::{
+    BODY_HEIGHT, BODY_WEIGHT, DIASTOLIC, FASTING_GLUCOSE_MASS, FASTING_GLUCOSE_MOLES, HBA1C, LOINC,
+    SYSTOLIC, WAIST,
+};
+use serde_json::{Value, json};
+use std::fs;
+
+const AS_OF: &str = "2026-10-15";
+
+fn ucum(unit_as_written: &str) -> &'static str {
+    match unit_as_written.to_lowercase().as_str() {
+        "%" => "%",
+        "mmol/mol" => "mmol/mol",
+        "mg/dl" => "mg/dL",
+        "mmol/l" => "mmol/L",
+        "cm" => "cm",
+        "in" => "[in_i]",
+        "mmhg" => "mm[Hg]",
+        other => panic!("unit {other}"),
+    }
+}
+
+/// One Bundle with every participant's Patient and Observations.
+fn export(report: &cohortpress::check::CheckReport) -> (Value, String) {
+    let mut entries = Vec::new();
+    let mut map = String::from("fhir_id,participant_id\n");
+    for (n, p) in report.participants.iter().enumerate() {
+        let d = p.data.as_ref().expect("usable");
+        let fid = format!("pt{n:04}x");
+        map.push_str(&format!("{fid},{}\n", d.profile.id));
+        let sex = format!("{:?}", d.profile.sex).to_lowercase();
+        entries.push(json!({"fullUrl": format!("urn:uuid:{fid}"), "resource": {
+            "resourceType": "Patient", "id": fid, "gender": sex,
+            "birthDate": d.profile.birth_date.unwrap().to_string()}}));
+        let mut k = 0;
+        let mut obs = |code: &str, when: String, value: Value, components: Option<Value>| {
+            k += 1;
+            let mut o = json!({"resourceType": "Observation", "id": format!("{fid}-{k}"),
+                "status": "final", "code": {"coding": [{"system": LOINC, "code": code}]},
+                "subject": {"reference": format!("Patient/{fid}")}, "effectiveDateTime": when});
+            if let Some(c) = components {
+                o["component"] = c;
+            } else {
+                o["valueQuantity"] = value;
+            }
+            entries.push(json!({"resource": o}));
+        };
+        let q = |v: f64, code: &str| json!({"value": v, "system": "http://unitsofmeasure.org", "code": code, "unit": code});
+        obs(
+            BODY_HEIGHT,
+            d.profile.enrolled.to_string(),
+            q(d.profile.height.cm(), "cm"),
+            None,
+        );
+        for w in &d.weights {
+            let when = match &w.time {
+                Some(t) => format!("{}T{t}:00-05:00", w.date),
+                None => w.date.to_string(),
+            };
+            obs(BODY_WEIGHT, when, q(w.weight.kg(), "kg"), None);
+        }
+        for l in &d.labs {
+            let u = ucum(&l.unit_as_written);
+            let code = match (format!("{:?}", l.test).as_str(), u) {
+                ("Hba1c", _) => HBA1C,
+                ("FastingGlucose", "mg/dL") => FASTING_GLUCOSE_MASS,
+                ("FastingGlucose", _) => FASTING_GLUCOSE_MOLES,
+                ("Waist", _) => WAIST,
+                ("SystolicBp", _) => SYSTOLIC,
+                ("DiastolicBp", _) => DIASTOLIC,
+                (t, _) => panic!("{t}"),
+            };
+            obs(code, l.date.to_string(), q(l.value_as_written, u), None);
+        }
+    }
+    (
+        json!({"resourceType": "Bundle", "type": "collection", "entry": entries}),
+        map,
+    )
+}
+
+#[test]
+fn a_program_exported_as_fhir_and_imported_gives_the_same_metrics() {
+    let ours = ProgramTest::sample();
+    fs::remove_dir_all(&ours.dir).unwrap();
+    cohortpress::demo::generate(
+        &ours.dir,
+        &cohortpress::demo::DemoOptions {
+            participants: 10,
+            seed: 77,
+            with_defects: false,
+        },
+    )
+    .unwrap();
+    let as_of = NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    // What FHIR carries: weigh-ins, labs, and a profile of sex, birth date, height and
+    // enrolment (the first observation: the height, measured at enrolment).
+    let report = cohortpress::check::check_program(&ours.dir, as_of);
+    for p in &report.participants {
+        let d = p.data.as_ref().unwrap();
+        let dir = ours.dir.join("participants").join(&p.id);
+        for f in ["intake.csv", "activity.csv", "sessions.csv"] {
+            let _ = fs::remove_file(dir.join(f));
+        }
+        let birth = d.profile.birth_date.unwrap_or_else(|| {
+            d.profile.enrolled - chrono::Days::new((d.profile.age_years * 365.2425) as u64)
+        });
+        fs::write(
+            dir.join("profile.yaml"),
+            format!(
+                "id: {}\nsex: {}\nbirth_date: {birth}\nheight: {} cm\nenrolled: {}\n",
+                p.id,
+                format!("{:?}", d.profile.sex).to_lowercase(),
+                d.profile.height.cm(),
+                d.profile.enrolled
+            ),
+        )
+        .unwrap();
+    }
+    let report = cohortpress::check::check_program(&ours.dir, as_of);
+    assert_eq!(report.usable(), 10);
+    let (bundle, map) = export(&report);
+
+    // Import into a new program with the same program.yaml.
+    let theirs = ProgramTest::sample();
+    fs::remove_dir_all(theirs.dir.join("participants")).unwrap();
+    fs::write(
+        theirs.dir.join("program.yaml"),
+        fs::read(ours.dir.join("program.yaml")).unwrap(),
+    )
+    .unwrap();
+    let scratch = theirs.dir.parent().unwrap();
+    fs::write(
+        scratch.join("bundle.json"),
+        serde_json::to_vec_pretty(&bundle).unwrap(),
+    )
+    .unwrap();
+    fs::write(scratch.join("ids.csv"), map).unwrap();
+    let bundle_path = scratch.join("bundle.json").to_string_lossy().into_owned();
+    let ids_path = scratch.join("ids.csv").to_string_lossy().into_owned();
+    let out = theirs.run(&[
+        "import",
+        "fhir",
+        &bundle_path,
+        "--out",
+        "{dir}",
+        "--ids",
+        &ids_path,
+    ]);
+    assert_eq!(out.code, 0, "{}{}", out.stdout, out.stderr);
+    assert!(
+        out.stdout.starts_with("imported 10 participants"),
+        "{}",
+        out.stdout
+    );
+
+    let mut metrics = Vec::new();
+    for t in [&ours, &theirs] {
+        let r = t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--period",
+            "2026-09",
+            "--formats",
+            "html",
+            "--quiet",
+        ]);
+        assert!(r.code <= 1, "{}", r.stderr);
+        let m = |f: &str| fs::read_to_string(t.dir.join("reports/metrics").join(f)).unwrap();
+        metrics.push((m("participants.csv"), m("weekly.csv"), m("tables.csv")));
+    }
+    assert!(metrics[0].0.lines().count() == 11, "{}", metrics[0].0);
+    assert_eq!(metrics[0].0, metrics[1].0, "participants.csv differs");
+    assert_eq!(metrics[0].1, metrics[1].1, "weekly.csv differs");
+    assert_eq!(metrics[0].2, metrics[1].2, "tables.csv differs");
+}
