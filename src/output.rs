@@ -128,7 +128,7 @@ pub struct Staging {
 }
 
 /// Marks a staging folder as ours, so a leftover one is removed only if it is ours; removed
-/// before the swap.
+/// right after the swap.
 const STAGING_MARKER: &str = ".cohortpress-staging";
 
 /// A file being written into staging; [`StagingFile::finish`] flushes it and records it for
@@ -399,7 +399,9 @@ impl Staging {
         check_replaceable(&out_dir, target)?;
         // Staging left by a killed run: we hold the lock, so nobody else is using it.
         if fs::symlink_metadata(&dir).is_ok() {
-            let ours = fs::symlink_metadata(dir.join(STAGING_MARKER)).is_ok_and(|m| m.is_file());
+            // Ours: it holds the marker, or it is empty (a run killed right after creating it).
+            let ours = fs::symlink_metadata(dir.join(STAGING_MARKER)).is_ok_and(|m| m.is_file())
+                || fs::read_dir(&dir).is_ok_and(|mut d| d.next().is_none());
             if !ours {
                 return Err(StagingError::Refused(format!(
                     "{} is in the way of the output staging folder and was not made by \
@@ -522,8 +524,6 @@ impl Staging {
     /// there, every file and folder fsync'd first) and releases the lock.
     pub fn commit(mut self) -> Result<OutputSet, StagingError> {
         let files = self.files().len();
-        let marker = self.dir.join(STAGING_MARKER);
-        fs::remove_file(&marker).map_err(io(&marker))?;
         let folders = std::mem::take(
             &mut *self
                 .folders
@@ -544,6 +544,13 @@ impl Staging {
         }
         fs::rename(&self.dir, &self.final_dir).map_err(io(&self.final_dir))?;
         self.committed = true;
+        // The marker goes last, so a staging folder is recognisable as ours until it is in place.
+        let marker = self.final_dir.join(STAGING_MARKER);
+        if let Err(e) = fs::remove_file(&marker)
+            && e.kind() != std::io::ErrorKind::NotFound
+        {
+            return Err(io(&marker)(e));
+        }
         if let Some(parent) = self.final_dir.parent() {
             sync_dir(parent)?;
         }

@@ -302,12 +302,63 @@ impl DrawingBackend for MeasuredSvg<'_> {
 /// The output has no scripts and no external references, all text is escaped, and the same
 /// chart always gives the same string. A `<title>` and `aria-label` carry the alt text.
 pub fn to_svg(chart: &Chart, width: u32, height: u32) -> String {
+    svg_string(chart, width, height, Legend::InPlot)
+}
+
+/// Draws `chart` as an `<svg>` for narrow screens: `width` wide, the plot `plot_height` tall and
+/// the legend (if any) in a strip below the plot, where it cannot cover data. The SVG is as
+/// tall as plot and legend together.
+pub fn to_svg_narrow(chart: &Chart, width: u32, plot_height: u32) -> String {
+    let strip = match chart {
+        Chart::Line(c) => legend_strip_height(c),
+        Chart::Bars(_) => 0,
+    };
+    svg_string(chart, width, plot_height + strip, Legend::Below(strip))
+}
+
+/// Where a line chart's legend goes.
+#[derive(Clone, Copy, PartialEq, Debug)]
+enum Legend {
+    /// In the plot corner that covers the least data.
+    InPlot,
+    /// In a strip of this many pixels under the x axis labels.
+    Below(u32),
+}
+
+/// Legend entries of a line chart: labelled lines and bands, and each distinct span label.
+fn legend_entries(c: &LineChart) -> usize {
+    let spans: std::collections::BTreeSet<&str> = c
+        .spans
+        .iter()
+        .filter(|s| !s.label.is_empty())
+        .map(|s| s.label.as_str())
+        .collect();
+    c.lines.iter().filter(|l| !l.label.is_empty()).count()
+        + c.bands.iter().filter(|b| !b.label.is_empty()).count()
+        + spans.len()
+}
+
+/// Height of the strip under a narrow chart that holds its legend in two columns.
+fn legend_strip_height(c: &LineChart) -> u32 {
+    match legend_entries(c) {
+        0 => 0,
+        n => n.div_ceil(2) as u32 * LEGEND_LINE_PX + 2 * LEGEND_MARGIN + 8,
+    }
+}
+
+/// Line height of legend entries at `LABEL_SIZE - 1`, and the legend's margin.
+const LEGEND_LINE_PX: u32 = 20;
+const LEGEND_MARGIN: u32 = 6;
+/// Left edge of the legend strip's first column, in pixels.
+const LEGEND_X: i32 = 12;
+
+fn svg_string(chart: &Chart, width: u32, height: u32, legend: Legend) -> String {
     let (width, height) = (width.max(80), height.max(60));
     let mut body = String::with_capacity(16 * 1024);
     {
         let root =
             MeasuredSvg(SVGBackend::with_string(&mut body, (width, height))).into_drawing_area();
-        if draw(chart, &root).is_err() {
+        if draw_with(chart, &root, legend).is_err() {
             // Drawing into a String cannot fail on I/O; a plotters layout error (e.g. an area too
             // small for the labels) leaves a blank chart rather than a broken report.
             let _ = root.fill(&WHITE);
@@ -360,9 +411,17 @@ pub(crate) fn draw<DB: DrawingBackend>(
     chart: &Chart,
     root: &DrawingArea<DB, Shift>,
 ) -> DrawResult<DB> {
+    draw_with(chart, root, Legend::InPlot)
+}
+
+fn draw_with<DB: DrawingBackend>(
+    chart: &Chart,
+    root: &DrawingArea<DB, Shift>,
+    legend: Legend,
+) -> DrawResult<DB> {
     root.fill(&WHITE)?;
     match chart {
-        Chart::Line(c) => draw_line_chart(c, root),
+        Chart::Line(c) => draw_line_chart(c, root, legend),
         Chart::Bars(c) => draw_bar_chart(c, root),
     }
 }
@@ -420,6 +479,7 @@ fn padded(lo: f64, hi: f64) -> (f64, f64) {
 fn draw_line_chart<DB: DrawingBackend>(
     c: &LineChart,
     root: &DrawingArea<DB, Shift>,
+    legend: Legend,
 ) -> DrawResult<DB> {
     // Dates from plotted data decide the x range; spans are clipped to it (a forecast span
     // alone, with no data, still gives a range).
@@ -483,7 +543,17 @@ fn draw_line_chart<DB: DrawingBackend>(
     };
     let y_fmt = |v: &f64| fmt_num(*v, 2);
 
-    let mut chart = ChartBuilder::on(root)
+    // A legend below the plot gets its own strip at the bottom of the drawing.
+    let (plot_area, strip) = match legend {
+        Legend::Below(px) if px > 0 => {
+            let (_, h) = root.dim_in_pixel();
+            let (top, bottom) = root.split_vertically(h.saturating_sub(px));
+            (top, Some(bottom))
+        }
+        _ => (root.clone(), None),
+    };
+    let mut swatches: Vec<(String, Swatch)> = Vec::new();
+    let mut chart = ChartBuilder::on(&plot_area)
         .caption(&c.title, bold_text(TITLE_SIZE, INK))
         .margin(10)
         .margin_right(18)
@@ -520,6 +590,7 @@ fn draw_line_chart<DB: DrawingBackend>(
             fill.filled(),
         )))?;
         if !s.label.is_empty() && labelled.insert(s.label.clone()) {
+            swatches.push((s.label.clone(), Swatch::Fill(fill)));
             series
                 .label(s.label.as_str())
                 .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 18, y + 6)], fill.filled()));
@@ -546,6 +617,7 @@ fn draw_line_chart<DB: DrawingBackend>(
         let fill = colour.mix(alpha);
         let series = chart.draw_series(std::iter::once(Polygon::new(outline, fill.filled())))?;
         if !b.label.is_empty() {
+            swatches.push((b.label.clone(), Swatch::Fill(fill)));
             series
                 .label(b.label.as_str())
                 .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 18, y + 6)], fill.filled()));
@@ -601,6 +673,14 @@ fn draw_line_chart<DB: DrawingBackend>(
             ))?,
         };
         if !l.label.is_empty() {
+            swatches.push((
+                l.label.clone(),
+                match l.style {
+                    LineStyle::Dots => Swatch::Dot(colour),
+                    LineStyle::Solid => Swatch::Line(line_style),
+                    LineStyle::Dashed => Swatch::Dashed(line_style),
+                },
+            ));
             let series = series.label(l.label.as_str());
             match l.style {
                 LineStyle::Dots => {
@@ -625,11 +705,14 @@ fn draw_line_chart<DB: DrawingBackend>(
     let any_label = c.lines.iter().any(|l| !l.label.is_empty())
         || c.bands.iter().any(|b| !b.label.is_empty())
         || c.spans.iter().any(|s| !s.label.is_empty());
+    if let Some(strip) = strip {
+        return draw_legend_strip(&strip, &swatches);
+    }
     if any_label {
         chart
             .configure_series_labels()
             .position(legend_corner(c, (x0, x1), (y0, y1)))
-            .margin(6)
+            .margin(LEGEND_MARGIN)
             .legend_area_size(24)
             .label_font(text(LABEL_SIZE - 1.0, INK))
             .background_style(WHITE.mix(0.88))
@@ -682,6 +765,58 @@ fn legend_corner(
         }
     }
     best.1
+}
+
+/// The mark shown beside a legend entry, as the series draws it.
+#[derive(Clone, Copy)]
+enum Swatch {
+    /// A filled box (span or band).
+    Fill(RGBAColor),
+    /// A dot (weigh-ins).
+    Dot(RGBColor),
+    /// A solid line.
+    Line(ShapeStyle),
+    /// A dashed line.
+    Dashed(ShapeStyle),
+}
+
+/// Draws legend entries in two columns filling `area` (the strip below a narrow chart).
+fn draw_legend_strip<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    entries: &[(String, Swatch)],
+) -> DrawResult<DB> {
+    let (w, _) = area.dim_in_pixel();
+    let rows = entries.len().div_ceil(2);
+    let col_w = (w as i32 - 2 * LEGEND_X) / 2;
+    for (i, (label, swatch)) in entries.iter().enumerate() {
+        let x = LEGEND_X + (i / rows) as i32 * col_w;
+        let y = LEGEND_MARGIN as i32
+            + 4
+            + (i % rows) as i32 * LEGEND_LINE_PX as i32
+            + LEGEND_LINE_PX as i32 / 2;
+        match *swatch {
+            Swatch::Fill(fill) => area.draw(&Rectangle::new(
+                [(x, y - 6), (x + 18, y + 6)],
+                fill.filled(),
+            ))?,
+            Swatch::Dot(colour) => area.draw(&Circle::new((x + 9, y), 3, colour.filled()))?,
+            Swatch::Line(style) => {
+                area.draw(&PathElement::new(vec![(x, y), (x + 18, y)], style))?
+            }
+            Swatch::Dashed(style) => {
+                area.draw(&PathElement::new(vec![(x, y), (x + 7, y)], style))?;
+                area.draw(&PathElement::new(vec![(x + 11, y), (x + 18, y)], style))?;
+            }
+        }
+        let size = LABEL_SIZE - 1.0;
+        let max_px = (col_w - 30) as f32;
+        area.draw(&Text::new(
+            fit_label(label, max_px, size),
+            (x + 24, y),
+            text(size, INK).pos(Pos::new(HPos::Left, VPos::Center)),
+        ))?;
+    }
+    Ok(())
 }
 
 fn draw_bar_chart<DB: DrawingBackend>(
@@ -950,7 +1085,11 @@ mod tests {
             alt_text: String::new(),
         });
         let mut seen = 0;
-        for svg in [to_svg(&sample_line(), 720, 340), to_svg(&bars, 600, 300)] {
+        for svg in [
+            to_svg(&sample_line(), 720, 340),
+            to_svg_narrow(&sample_line(), 380, 300),
+            to_svg(&bars, 600, 300),
+        ] {
             for tag in svg.split("<text").skip(1) {
                 let open = &tag[..tag.find('>').unwrap()];
                 let fill = open
@@ -965,6 +1104,59 @@ mod tests {
             }
         }
         assert!(seen > 20, "only {seen} text elements checked");
+    }
+
+    /// `(y, text)` of every `<text>` element of an SVG from plotters.
+    fn svg_text_positions(svg: &str) -> Vec<(f64, String)> {
+        svg.split("<text")
+            .skip(1)
+            .map(|tag| {
+                let y = tag
+                    .split(" y=\"")
+                    .nth(1)
+                    .and_then(|r| r.split('"').next())
+                    .expect("y");
+                let body = &tag[tag.find('>').unwrap() + 1..tag.find("</text>").unwrap()];
+                (y.parse().expect("numeric y"), body.trim().to_string())
+            })
+            .collect()
+    }
+
+    #[test]
+    fn narrow_chart_puts_the_whole_legend_below_the_plot() {
+        let chart = sample_line();
+        let Chart::Line(line) = &chart else {
+            unreachable!()
+        };
+        // 3 lines, 1 band, 2 distinct span labels: 3 rows of two.
+        assert_eq!(legend_entries(line), 6);
+        let strip = legend_strip_height(line);
+        let svg = to_svg_narrow(&chart, 380, 300);
+        assert!(
+            svg.contains(&format!("width=\"380\" height=\"{}\"", 300 + strip)),
+            "{:.200}",
+            svg
+        );
+        let texts = svg_text_positions(&svg);
+        for label in [
+            "weigh-ins",
+            "trend &lt;smoothed&gt;",
+            "forecast",
+            "95 % interval",
+            "plateau",
+        ] {
+            let ys: Vec<f64> = texts.iter().filter(|t| t.1 == label).map(|t| t.0).collect();
+            assert!(!ys.is_empty(), "legend entry {label} missing");
+            for y in ys {
+                assert!(
+                    y >= 300.0 && y < f64::from(300 + strip),
+                    "{label} at y = {y}, plot ends at 300"
+                );
+            }
+        }
+        // The wide chart keeps its legend inside the plot.
+        let wide = svg_text_positions(&to_svg(&chart, 720, 340));
+        assert!(wide.iter().any(|t| t.1 == "plateau" && t.0 < 300.0));
     }
 
     #[test]

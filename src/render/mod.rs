@@ -13,6 +13,6 @@ mod tagged;
 
 pub use chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
-    to_svg,
+    to_svg, to_svg_narrow,
 };
 pub use pdf::{Block, Document, PdfError, Tone, render_pdf};

@@ -161,8 +161,18 @@ pub enum RenderError {
 const CHART_W: u32 = 720;
 const CHART_H: u32 = 300;
 
+/// Narrow chart for phone screens: width and plot height in SVG pixels (the legend goes below).
+const NARROW_W: u32 = 380;
+const NARROW_PLOT_H: u32 = 300;
+
+/// Each chart drawn twice: wide (legend in the emptiest plot corner) and narrow (legend below the
+/// plot); the shared style shows one of them by screen width, so a phone never scrolls sideways.
 fn svg(c: &Chart) -> String {
-    chart::to_svg(c, CHART_W, CHART_H)
+    format!(
+        "<div class=\"chart-wide\">{}</div><div class=\"chart-narrow\">{}</div>",
+        chart::to_svg(c, CHART_W, CHART_H),
+        chart::to_svg_narrow(c, NARROW_W, NARROW_PLOT_H)
+    )
 }
 
 /// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes).

@@ -1,6 +1,7 @@
 //! The one integration-test binary. Each module covers one feature and runs the real
 //! `cohortpress` binary on fixture programs (see `harness.rs`).
 
+mod accessibility;
 mod check;
 mod exports;
 mod external;

@@ -28,7 +28,7 @@ const SNAPSHOT_ID: &str = "SG-007";
 // ---------------------------------------------------------------------------------------------
 
 /// The sample program run once through the binary.
-struct SampleRun {
+pub(crate) struct SampleRun {
     prog: ProgramTest,
     outcome: Outcome,
 }
@@ -38,7 +38,7 @@ impl SampleRun {
         self.prog.dir.join("reports")
     }
 
-    fn read(&self, rel: &str) -> String {
+    pub(crate) fn read(&self, rel: &str) -> String {
         std::fs::read_to_string(self.out().join(rel)).unwrap_or_else(|e| panic!("{rel}: {e}"))
     }
 
@@ -47,7 +47,7 @@ impl SampleRun {
     }
 }
 
-fn sample_run() -> &'static SampleRun {
+pub(crate) fn sample_run() -> &'static SampleRun {
     static RUN: OnceLock<SampleRun> = OnceLock::new();
     RUN.get_or_init(|| {
         let prog = ProgramTest::sample();
@@ -422,8 +422,8 @@ fn participant_html_snapshot() {
     let stripped = strip_svg(&html);
     assert_eq!(
         html.matches("<svg").count(),
-        3,
-        "weight, energy and activity charts"
+        6,
+        "weight, energy and activity charts, each drawn wide and narrow"
     );
     insta::with_settings!({filters => vec![(r"cohortpress \d+\.\d+\.\d+\S*", "cohortpress [version]")]}, {
         insta::assert_snapshot!("participant_html_sg007", stripped);

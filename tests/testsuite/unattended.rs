@@ -242,6 +242,14 @@ fn a_run_killed_between_the_renames_is_recovered() {
     let o = run_to(&t, &out, &[]);
     assert_eq!(o.code, 0, "{o:?}");
     no_leftovers(&parent, "reports");
+    // Killed right after creating its staging folder (still empty), or after the swap but
+    // before removing the staging marker: both are recognised as ours.
+    std::fs::create_dir(parent.join(".reports.staging")).unwrap();
+    std::fs::write(out.join(".cohortpress-staging"), "").unwrap();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 0, "{o:?}");
+    no_leftovers(&parent, "reports");
+    assert!(!out.join(".cohortpress-staging").exists());
     // Something foreign in the swap's way is never deleted.
     foreign_folder(&copy);
     let o = run_to(&t, &out, &[]);
