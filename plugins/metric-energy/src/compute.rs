@@ -35,6 +35,8 @@ use std::collections::BTreeMap;
 
 /// β = β_TEF + β_AT: the part of an intake change the body gives back (Hall et al. 2011).
 const BETA: f64 = BETA_TEF + BETA_AT;
+/// z quantile of the standard normal for a two-sided 95 % interval.
+const Z_95: f64 = 1.959_963_984_540_054;
 /// Logged days needed for a mean logged intake.
 const MIN_LOGGED_DAYS: usize = 4;
 /// Gap beyond which (whole 95 % interval) logs are called inconsistent with the trend, kcal/d.
@@ -44,6 +46,37 @@ const MAX_WALK_MIN: f64 = 120.0;
 /// Half-width of the plateau band as a fraction of body weight per week (REFERENCE §7.3,
 /// program configuration rather than a literature constant).
 const PLATEAU_BAND_FRACTION_PER_WEEK: f64 = 0.0025;
+/// SD of a person's physical activity level around `base_pal`: FAO/WHO/UNU 2004 (*Human energy
+/// requirements*) puts sedentary-to-light lifestyles at PAL 1.40–1.69 and active ones at
+/// 1.70–1.99, so ±2 SD = ±0.3 spans a category either side (program choice).
+const PAL_SD: f64 = 0.15;
+/// Relative SD of measured resting energy around the equation's prediction: Mifflin–St Jeor
+/// predicts within ±10 % for about 80 % of adults (Frankenfield et al. 2005, J Am Diet Assoc
+/// 105:775; from memory), i.e. SD ≈ 8 %.
+const RMR_REL_SD: f64 = 0.08;
+/// Prior share of intake left out of food logs, and its SD: self-reported intake falls short of
+/// doubly-labelled-water expenditure by 10–45 % in most studies (Trabulsi & Schoeller 2001, Am J
+/// Physiol Endocrinol Metab 281:E891; from memory), centre 20 %, SD 12 points.
+const UNDERREPORT_PRIOR: f64 = 0.20;
+const UNDERREPORT_SD: f64 = 0.12;
+/// Day-to-day coefficient of variation of one logged day (sampling error of a mean of logged
+/// days; common practice).
+const LOG_DAY_CV: f64 = 0.30;
+/// Relative SDs of the linearised model's ρ (energy density of weight change; with body fat
+/// unknown to ±4 points the lean share of a change moves by about ±10 %) and ε (the
+/// expenditure slope, through the unknown activity level); program choice.
+const RHO_REL_SD: f64 = 0.10;
+const EPS_REL_SD: f64 = 0.15;
+/// How fast a person's intake may move after the last data, kcal/d per day, for the forecast
+/// band (≈ 270 kcal/d over a quarter; adherence commonly fades over months, Thomas et al. 2014,
+/// Am J Clin Nutr 100:787). Program choice; the person's own movement so far is added to it.
+const INTAKE_DRIFT_PER_DAY: f64 = 3.0;
+/// Share of the current deficit the forecast band's upper edge allows to be given up by the end
+/// of the horizon (program choice; see the forecast in `run`).
+const FADE_SHARE: f64 = 0.5;
+/// Smallest BMI a reported steady state may have: the linearised energy balance is not a model
+/// of starvation (program choice; BMI 16 is the WHO threshold of severe thinness).
+const MIN_STEADY_STATE_BMI: f64 = 16.0;
 
 struct Settings {
     equation: RestingEquation,
@@ -69,7 +102,7 @@ impl Settings {
         })?;
         Ok(Settings {
             equation,
-            base_pal: ctx.setting_f64("base_pal", 1.4),
+            base_pal: ctx.setting_f64("base_pal", 1.6),
             window_days: ctx.setting_f64("window_days", 28.0).round().max(1.0) as u64,
             target_loss: ctx.setting_f64("target_loss_kg_per_week", 0.5),
             max_safe_loss: ctx.setting_f64("max_safe_loss_kg_per_week", 1.0),
@@ -115,6 +148,8 @@ struct TrendPeriod {
 struct Trend {
     level: BTreeMap<NaiveDate, Band>,
     slope: BTreeMap<NaiveDate, Band>,
+    /// Mean slope over the 28 days ending each day (`weight_slope_28d`), when the trend gives it.
+    slope28: BTreeMap<NaiveDate, Band>,
     periods: Vec<TrendPeriod>,
 }
 
@@ -143,6 +178,7 @@ fn parse_trend(out: &ModuleOutput, to: NaiveDate) -> Trend {
     let mut t = Trend {
         level: series_map(out, "weight_trend", to),
         slope: series_map(out, "weight_slope", to),
+        slope28: series_map(out, "weight_slope_28d", to),
         periods: vec![],
     };
     if let Some(table) = out.table("periods") {
@@ -199,6 +235,18 @@ fn mean_band(map: &BTreeMap<NaiveDate, Band>, from: NaiveDate, to: NaiveDate) ->
         lower: mean_opt(&|b| b.lower),
         upper: mean_opt(&|b| b.upper),
     })
+}
+
+/// Mean slope over [from, to] with its 95 % band: the trend's exact 28-day window slope when
+/// the window is 28 days long and the trend gives it, else the mean of the daily slopes and of
+/// their bounds (conservative).
+fn window_slope(t: &Trend, from: NaiveDate, to: NaiveDate) -> Option<Band> {
+    if days_incl(from, to) == 28
+        && let Some(b) = t.slope28.get(&to)
+    {
+        return Some(*b);
+    }
+    mean_band(&t.slope, from, to)
 }
 
 /// 0.975 quantile of Student's t (Cornish–Fisher expansion; within 0.05 of the exact value for
@@ -355,6 +403,26 @@ impl Person<'_> {
         (mean, n)
     }
 
+    /// Implied intake over a window that starts at the diet's start (fast compartments still
+    /// emptying): with `bw` the window's mean weight, `slope` its mean slope and `span` its
+    /// length in days, ΔEI = (ε·ΔBW + ρ·slope)/(1 + κε + κρ/span), κ from
+    /// [`crate::dynamics::fast_compartment_kg_per_kcal`], then + EI₀ + A/(1 − β).
+    fn implied_intake_from_start(&self, bw: f64, slope: f64, met_hours: f64, span: f64) -> f64 {
+        let kappa = crate::dynamics::fast_compartment_kg_per_kcal(self.model.ei0);
+        let raw = self.lin.implied_intake_change(bw - self.model.bw0, slope);
+        self.model.ei0
+            + raw / (1.0 + kappa * self.lin.epsilon + kappa * self.lin.rho / span.max(1.0))
+            + met_hours * bw / (1.0 - BETA)
+    }
+
+    /// Variance of an implied intake from the slope and the model parameters (not from the
+    /// baseline requirement), kcal²/d²: (ρ·SD_slope)² + (SD_ρ·slope)² + (SD_ε·ΔBW)².
+    fn change_var(&self, bw: f64, slope: f64, slope_sd: f64) -> f64 {
+        (self.lin.rho * slope_sd).powi(2)
+            + (RHO_REL_SD * self.lin.rho * slope).powi(2)
+            + (EPS_REL_SD * self.lin.epsilon * (bw - self.model.bw0)).powi(2)
+    }
+
     /// Implied intake at weight `bw`, slope `slope` (kg/d) and net activity `met_hours`
     /// (kcal/kg/d): EI₀ + ε·ΔBW + ρ·slope + A/(1 − β).
     fn implied_intake(&self, bw: f64, slope: f64, met_hours: f64) -> f64 {
@@ -465,7 +533,7 @@ pub(crate) fn run(
     let rmr0 = equation.resting_energy(sex, bw0, height_cm, age0, lean0);
     let model = HallModel::new(bw0, fm0, rmr0, s.base_pal);
     let lin = LinearisedModel::from_baseline(bw0, fm0, rmr0, s.base_pal);
-    let p = Person {
+    let mut p = Person {
         data,
         sex,
         height_cm,
@@ -474,6 +542,14 @@ pub(crate) fn run(
         lin,
         trend,
     };
+    // The baseline requirement EI₀ is not known: RMR × PAL with both uncertain, then updated by
+    // the food logs with under-reporting as a parameter.
+    let withdrew_cut = data.profile.withdrew.map_or(to, |w| w.min(to));
+    let baseline = baseline_requirement(&p, enrolled, withdrew_cut);
+    let pal_post = (baseline.ei0 / rmr0).clamp(1.1, 2.5);
+    p.model = HallModel::new(bw0, fm0, rmr0, pal_post);
+    p.lin = LinearisedModel::from_baseline(bw0, fm0, rmr0, pal_post);
+    let var_ei0 = baseline.var;
 
     // Current state.
     let window_from = day_before(to, s.window_days - 1).max(enrolled);
@@ -495,7 +571,7 @@ pub(crate) fn run(
     };
     let slope: Option<Band> = match &fallback {
         Some(fit) => Some(fit.slope),
-        None => mean_band(&p.trend.slope, window_from, to)
+        None => window_slope(&p.trend, window_from, to)
             // Require most of the window to be covered, so a few days do not pass for a month.
             .filter(|_| {
                 p.trend.slope.range(window_from..=to).count() as i64
@@ -516,12 +592,50 @@ pub(crate) fn run(
 
     let rmr = p.rmr_at(bw_cur, to);
     let activity = p.activity_kcal(period_from, to, bw_cur);
-    let tdee = rmr * s.base_pal + activity;
     let (logged_mean, logged_days) = p.logged(period_from, to);
     let logged = logged_mean.filter(|_| logged_days >= MIN_LOGGED_DAYS);
     let met_h_window = p.activity_met_hours(window_from, to);
-    let implied: Option<Band> =
-        slope.map(|sl| sl.map(|x| p.implied_intake(bw_window, x, met_h_window)));
+    // Implied intake over the window with every source of uncertainty: the baseline
+    // requirement (after the logs), the slope (its band already carries correlated scatter) and
+    // the model's ρ and ε.
+    let slope_sd = |b: &Band| match (b.lower, b.upper) {
+        (Some(l), Some(u)) => (u - l).abs() / (2.0 * Z_95),
+        _ => 0.0,
+    };
+    let implied_sd: Option<f64> =
+        slope.map(|sl| (var_ei0 + p.change_var(bw_window, sl.value, slope_sd(&sl))).sqrt());
+    let implied: Option<Band> = slope.map(|sl| {
+        let v = p.implied_intake(bw_window, sl.value, met_h_window);
+        let h = Z_95 * implied_sd.unwrap_or(0.0);
+        Band {
+            value: v,
+            lower: Some((v - h).max(0.0)),
+            upper: Some(v + h),
+        }
+    });
+    // Expenditure: by energy balance when the intake is implied (intake minus the energy
+    // stored, ρ_stored·dBW/dt with the energy density of the tissue change; Hall 2008 Int J
+    // Obes 32:573, from memory), else resting × the person's PAL + logged activity.
+    let tdee = match (implied, slope) {
+        (Some(i), Some(sl)) => {
+            let ed =
+                crate::dynamics::energy_density_of_weight_change(p.model.fat_for_weight(bw_window));
+            i.value - ed * sl.value
+        }
+        _ => rmr * p.model.pal + activity,
+    };
+    let (logged_window, logged_window_days) = p.logged(window_from, to);
+    let underreport = match (implied, logged_window) {
+        (Some(i), Some(l)) if logged_window_days >= MIN_LOGGED_DAYS && i.value > 0.0 => {
+            let pct = |x: f64| 100.0 * (1.0 - l / x.max(1.0));
+            Some(Band {
+                value: pct(i.value),
+                lower: i.lower.map(pct),
+                upper: i.upper.map(pct),
+            })
+        }
+        _ => None,
+    };
 
     out.push_scalar(
         "rmr_kcal_per_day",
@@ -539,7 +653,17 @@ pub(crate) fn run(
         "tdee_kcal_per_day",
         Some(tdee),
         "kcal/d",
-        &format!("Total expenditure: resting × {} + net activity", s.base_pal),
+        if implied.is_some() {
+            "Total expenditure: implied intake minus the energy stored or released by the weight change"
+        } else {
+            "Total expenditure: resting × the activity level estimated for this person + logged activity"
+        },
+    );
+    out.push_scalar(
+        "pal_estimate",
+        Some(p.model.pal),
+        "",
+        "Baseline activity level (TEE/RMR) after combining the prior with the food logs",
     );
     out.push_scalar(
         "logged_intake_kcal_per_day",
@@ -565,6 +689,26 @@ pub(crate) fn run(
         (Some(i), Some(l)) => Some(i.map(|x| x - l)),
         _ => None,
     };
+    out.push_scalar(
+        "implied_intake_lower_kcal_per_day",
+        implied.and_then(|b| b.lower),
+        "kcal/d",
+        "Lower 95 % bound of the implied intake (advice is checked against it)",
+    );
+    out.push_scalar(
+        "implied_intake_upper_kcal_per_day",
+        implied.and_then(|b| b.upper),
+        "kcal/d",
+        "Upper 95 % bound of the implied intake",
+    );
+    out.push_interval(
+        "underreporting_percent",
+        underreport.map(|b| b.value),
+        underreport.and_then(|b| b.upper),
+        underreport.and_then(|b| b.lower),
+        "%",
+        "Share of the implied intake missing from the food log over the window, 95 % interval",
+    );
     out.push_interval(
         "intake_gap_kcal_per_day",
         gap.map(|b| b.value),
@@ -587,26 +731,61 @@ pub(crate) fn run(
     // To the program end, but never shorter than `forecast_min_days`: in a program's last month
     // a forecast "to the end" would have no horizon at all.
     let horizon = (ctx.program.end - to).num_days().max(s.forecast_min_days);
-    let run_forecast = |intake: f64| -> Vec<f64> {
-        let start = p.model.state_at_weight(bw_cur, intake);
+    let run_forecast = |intake: &dyn Fn(usize) -> f64| -> Vec<f64> {
+        let start = p.model.state_at_weight(bw_cur, intake(0));
         p.model
-            .simulate_from(start, horizon.max(0) as usize, |_| intake, |_| met_h_window)
+            .simulate_from(start, horizon.max(0) as usize, intake, |_| met_h_window)
             .iter()
             .map(|st| p.model.weight(st))
             .collect()
     };
+    // The band holds (a) the current energy balance's uncertainty (slope and model parameters;
+    // the baseline requirement cancels, since the model's expenditure shares it), (b) intake
+    // moving after the last data at INTAKE_DRIFT_PER_DAY plus this person's own movement so far
+    // (twice the drift after a withdrawal, when nothing is known of the habits), growing
+    // linearly with time, and (c) the uncertainty of the current trend weight.
+    let withdrawn = data.profile.withdrew.is_some_and(|w| w <= to);
+    let drift_rate = {
+        let own = intake_movement_per_day(&p, enrolled, withdrew_cut, s.window_days);
+        let pop = if withdrawn {
+            2.0 * INTAKE_DRIFT_PER_DAY
+        } else {
+            INTAKE_DRIFT_PER_DAY
+        };
+        (pop * pop + own * own).sqrt()
+    };
+    let balance_sd = slope.map_or(0.0, |sl| {
+        p.change_var(bw_window, sl.value, slope_sd(&sl)).sqrt()
+    });
+    let level_half = p
+        .trend
+        .level
+        .range(..=to)
+        .next_back()
+        .and_then(|(_, b)| Some((b.upper? - b.lower?).abs() / 2.0))
+        .unwrap_or(0.0);
+    let intake_sd_at = |d: usize| (balance_sd.powi(2) + (drift_rate * d as f64).powi(2)).sqrt();
     let mut forecast_points = vec![];
     let mut forecast_end: Option<Band> = None;
     if let (Some(i), true) = (implied, horizon > 0) {
-        let mid = run_forecast(i.value);
-        let lo = i.lower.map(&run_forecast);
-        let hi = i.upper.map(&run_forecast);
+        let mid = run_forecast(&|_| i.value);
+        let lo = run_forecast(&|d| (i.value - Z_95 * intake_sd_at(d)).max(0.0));
+        // Adherence fades more often than it grows: the upper edge also gives up half of the
+        // current deficit (below the baseline requirement) by the end of the horizon, the usual
+        // course in programs of six months and longer (Thomas et al. 2014, Am J Clin Nutr
+        // 100:787; program choice of "half").
+        let deficit = (p.model.ei0 - i.value).max(0.0);
+        let hz = horizon.max(1) as f64;
+        let hi = run_forecast(&|d| {
+            i.value + Z_95 * intake_sd_at(d) + FADE_SHARE * deficit * (d as f64 / hz).min(1.0)
+        });
         for (d, w) in mid.iter().enumerate() {
+            let widen = |edge: f64| ((edge - w).powi(2) + level_half.powi(2)).sqrt();
             forecast_points.push(Point {
                 date: day_after(to, d as u64),
                 value: *w,
-                lower: lo.as_ref().map(|v| v[d]),
-                upper: hi.as_ref().map(|v| v[d]),
+                lower: Some(w - widen(lo[d])),
+                upper: Some(w + widen(hi[d])),
             });
         }
         forecast_end = forecast_points.last().map(|pt| Band {
@@ -623,9 +802,23 @@ pub(crate) fn run(
         "kg",
         "Forecast weight at the end of the forecast horizon (program end, or forecast_min_days past the period if later), implied intake and activity held (Hall et al. 2011 model)",
     );
-    let ss = |x: f64| p.model.steady_state_weight(x, met_h_window);
-    let steady =
-        implied.and_then(|i| ss(i.value).map(|v| (v, i.lower.and_then(ss), i.upper.and_then(ss))));
+    let h_m = height_cm / 100.0;
+    let ss = |x: f64| {
+        p.model
+            .steady_state_weight(x, met_h_window)
+            .filter(|w| w / (h_m * h_m) >= MIN_STEADY_STATE_BMI)
+    };
+    // The steady state's interval comes from the current energy balance's uncertainty (the
+    // baseline requirement cancels), as for the forecast.
+    let steady = implied.and_then(|i| {
+        ss(i.value).map(|v| {
+            (
+                v,
+                ss(i.value - Z_95 * balance_sd),
+                ss(i.value + Z_95 * balance_sd),
+            )
+        })
+    });
     out.push_interval(
         "steady_state_weight_kg",
         steady.map(|x| x.0),
@@ -680,6 +873,100 @@ pub(crate) fn run(
     // Logged intakes below the usual floors are flagged by the outcomes module, which owns the
     // safety flags; this module only refuses to recommend going below them.
     Ok(out)
+}
+
+/// The baseline requirement EI₀ with its variance.
+struct Baseline {
+    ei0: f64,
+    var: f64,
+}
+
+/// EI₀ from the prior and the food logs.
+///
+/// # Method
+/// Prior: EI₀ = RMR₀ × `base_pal`, relative SD √((PAL_SD/PAL)² + RMR_REL_SD²). Over the span
+/// from the first trend day to the last (at least 28 days, at least 7 logged days), the weight
+/// trend implies a mean intake I_T = EI₀ + ΔEI (ΔEI from the span's mean level and slope, with
+/// the fast glycogen/water drop of the diet's start taken out); the logs give
+/// I_L = L/(1 − u₀) with u₀ = 20 % ± 12 points under-reporting and the sampling error of a mean
+/// of logged days. The two are combined by inverse-variance weighting (a normal–normal update,
+/// e.g. Gelman et al. 2013, *Bayesian Data Analysis*, 3rd ed., §2.5), and EI₀ moves by the
+/// same amount as the span's intake.
+fn baseline_requirement(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate) -> Baseline {
+    let prior = p.model.ei0;
+    let rel = ((PAL_SD / p.model.pal).powi(2) + RMR_REL_SD * RMR_REL_SD).sqrt();
+    let var_prior = (prior * rel).powi(2);
+    let fallback = Baseline {
+        ei0: prior,
+        var: var_prior,
+    };
+    let Some((&from, first)) = p.trend.level.range(enrolled..=to).next() else {
+        return fallback;
+    };
+    let Some((&last, end)) = p.trend.level.range(..=to).next_back() else {
+        return fallback;
+    };
+    let span = (last - from).num_days() as f64;
+    let (logged, n) = p.logged(from, last);
+    let (Some(l), true) = (logged, span >= 28.0 && n >= 7) else {
+        return fallback;
+    };
+    let Some(level) = mean_band(&p.trend.level, from, last) else {
+        return fallback;
+    };
+    let slope = (end.value - first.value) / span;
+    let i_t =
+        p.implied_intake_from_start(level.value, slope, p.activity_met_hours(from, last), span);
+    let var_t = var_prior + (RHO_REL_SD * p.lin.rho * slope).powi(2);
+    let i_l = l / (1.0 - UNDERREPORT_PRIOR);
+    let var_l = (l * UNDERREPORT_SD / (1.0 - UNDERREPORT_PRIOR).powi(2)).powi(2)
+        + (LOG_DAY_CV * i_l).powi(2) / n as f64;
+    let w_t = 1.0 / var_t;
+    let w_l = 1.0 / var_l;
+    let i_post = (w_t * i_t + w_l * i_l) / (w_t + w_l);
+    Baseline {
+        ei0: prior + (i_post - i_t),
+        var: 1.0 / (w_t + w_l),
+    }
+}
+
+/// How fast this person's implied intake has moved so far, kcal/d per day: successive
+/// `window`-day blocks ending at `to`, the mean of (difference² − its noise variance) over
+/// pairs of blocks, square-rooted and divided by the block length (0 with fewer than two
+/// blocks).
+fn intake_movement_per_day(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate, window: u64) -> f64 {
+    let mut blocks: Vec<(f64, f64)> = Vec::new();
+    let mut end = to;
+    loop {
+        let from = day_before(end, window - 1);
+        if from < enrolled {
+            break;
+        }
+        let (Some(sl), Some(w)) = (
+            window_slope(&p.trend, from, end),
+            mean_band(&p.trend.level, from, end),
+        ) else {
+            break;
+        };
+        if (p.trend.slope.range(from..=end).count() as u64) < window / 2 {
+            break;
+        }
+        let sd = match (sl.lower, sl.upper) {
+            (Some(l), Some(u)) => (u - l).abs() / (2.0 * Z_95),
+            _ => 0.0,
+        };
+        let i = p.implied_intake(w.value, sl.value, p.activity_met_hours(from, end));
+        blocks.push((i, (p.lin.rho * sd).powi(2)));
+        end = day_before(from, 1);
+    }
+    if blocks.len() < 2 {
+        return 0.0;
+    }
+    let excess: Vec<f64> = blocks
+        .windows(2)
+        .map(|b| ((b[0].0 - b[1].0).powi(2) - b[0].1 - b[1].1).max(0.0))
+        .collect();
+    (excess.iter().sum::<f64>() / excess.len() as f64).sqrt() / window as f64
 }
 
 /// Outputs with every value missing (no weigh-ins at all), so the report still finds them.
@@ -838,6 +1125,9 @@ fn options_table(
         p.lin.rho * (target_slope - sl.value)
     };
     let new_intake = imp.value + d_ei;
+    // Checked on the uncertain side: the person may already eat as little as the lower bound
+    // of the implied intake.
+    let new_intake_low = imp.lower.unwrap_or(imp.value) + d_ei;
     let floor = p.floor(s);
     let (feasible, reason) = if too_fast {
         ("no", fast_reason.clone())
@@ -847,6 +1137,15 @@ fn options_table(
             format!(
                 "It would bring intake to about {new_intake:.0} kcal a day, below {floor:.0} kcal \
                  a day; intakes that low need a clinician's supervision."
+            ),
+        )
+    } else if new_intake_low < floor {
+        (
+            "no",
+            format!(
+                "It would bring intake to about {new_intake:.0} kcal a day, but possibly to \
+                 {new_intake_low:.0} (the low end of the estimate), below {floor:.0} kcal a day; \
+                 intakes that low need a clinician's supervision."
             ),
         )
     } else if already {
@@ -915,8 +1214,9 @@ fn options_table(
 
     // When eating less alone would go below the floor, the practical answer is both: eat less
     // down to the floor and walk off the rest (same model terms as the two rows above).
-    if !too_fast && !already && new_intake < floor && kcal_per_min > 0.0 {
-        let cut = (imp.value - floor).max(0.0);
+    if !too_fast && !already && new_intake_low < floor && kcal_per_min > 0.0 {
+        // Cut only as far as keeps the low end of the estimate at the floor.
+        let cut = (imp.lower.unwrap_or(imp.value) - floor).max(0.0);
         let rest_kcal = (-d_ei - cut).max(0.0);
         let rest_minutes = (1.0 - BETA) * rest_kcal / kcal_per_min;
         let (feasible, reason) = if rest_minutes > MAX_WALK_MIN {
@@ -943,7 +1243,7 @@ fn options_table(
             text("combined"),
             num(Some(rest_minutes)),
             text("min/d"),
-            num(Some(floor.min(imp.value))),
+            num(Some(imp.value - cut)),
             text(feasible),
             text(reason),
         ]);
@@ -972,6 +1272,21 @@ fn plateau_columns() -> Table {
             ),
             Column::new("classification", "", "Reading"),
             Column::new("evidence", "", "Evidence"),
+            Column::new(
+                "intake_change_kcal_per_day",
+                "kcal/d",
+                "Change in implied intake, early to plateau",
+            ),
+            Column::new(
+                "intake_change_lower_kcal_per_day",
+                "kcal/d",
+                "Change, lower 95 %",
+            ),
+            Column::new(
+                "intake_change_upper_kcal_per_day",
+                "kcal/d",
+                "Change, upper 95 %",
+            ),
         ],
         rows: vec![],
     }
@@ -979,82 +1294,129 @@ fn plateau_columns() -> Table {
 
 /// The `plateau_assessment` table: one row per `plateau` period of the trend output.
 ///
-/// The expected slope is the linearised model's slope at the plateau's starting weight fed with
-/// the habits: logged intake during the plateau when at least 4 days were logged, else the
-/// implied intake of the `window_days` before the plateau. The plateau band is the trend's
-/// slope interval widened to at least ±0.25 % of body weight per week.
-///
-/// Limitation: when the trend dates a plateau's onset later than the habit change that caused
-/// it, the "before" window already holds some of the new intake and the drift reads smaller.
+/// # Method
+/// - **Early intake**: the intake implied over days 7–34 after enrolment (after the diet's fast
+///   glycogen/water drop); when the plateau starts earlier than day 35, over enrolment to the
+///   day before the plateau with the fast drop taken out
+///   ([`Person::implied_intake_from_start`]).
+/// - **During**: the intake implied over the whole plateau (its exact slope interval from the
+///   trend's `periods` table; the first `window_days` days when the period is shorter than 28).
+/// - **Change** = during − early = ε·(BW_d − BW_e) + ρ·(s_d − s_e): the baseline requirement
+///   cancels, so its 95 % interval carries only the two slopes' uncertainty (their bands, which
+///   include correlated scatter) and the model's ρ and ε.
+/// - **Expected slope**: the linearised model's slope at the plateau's starting weight with the
+///   early intake held (Hall & Chow 2011).
+/// - `intake_drift` when the change's interval lies above zero and the change is at least
+///   `drift_threshold_kcal_per_day`; `expected_slowdown` when it
+///   does not and the expected slope lies inside the plateau band (the model at the earlier
+///   intake predicts the stall); `undetermined` otherwise (neither shown), or when the early
+///   window is too short (< 14 days).
 fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
     let mut t = plateau_columns();
+    let sd_of = |b: &Band| match (b.lower, b.upper) {
+        (Some(l), Some(u)) => (u - l).abs() / (2.0 * Z_95),
+        _ => 0.0,
+    };
     for per in p.trend.periods.iter().filter(|x| x.kind == "plateau") {
-        let during_slope = mean_band(&p.trend.slope, per.start, per.end)
-            .map(|b| b.value)
-            .or(per.slope_wk.map(|x| x / 7.0));
-        let observed_wk = per.slope_wk.or(during_slope.map(|x| x * 7.0));
+        // The whole plateau, with the trend's exact slope interval for it when the period
+        // gives one (a longer window measures the intake during the plateau more precisely).
+        let during_to = per.end;
+        let during_slope = match (per.slope_wk, per.lower_wk, per.upper_wk) {
+            (Some(m), Some(l), Some(u)) if days_incl(per.start, per.end) >= 28 => Some(Band {
+                value: m / 7.0,
+                lower: Some(l / 7.0),
+                upper: Some(u / 7.0),
+            }),
+            _ => window_slope(
+                &p.trend,
+                per.start,
+                day_after(per.start, s.window_days - 1).min(per.end),
+            ),
+        };
+        let observed_wk = per.slope_wk.or(during_slope.map(|x| x.value * 7.0));
         let bw_start = per.weight_start.or_else(|| p.weight_on(per.start));
-        let bw_during = mean_band(&p.trend.level, per.start, per.end)
+        let bw_during = mean_band(&p.trend.level, per.start, during_to)
             .map(|b| b.value)
             .or(bw_start);
-        let met_during = p.activity_met_hours(per.start, per.end);
-        let implied_during = match (bw_during, during_slope) {
-            (Some(w), Some(sl)) => Some(p.implied_intake(w, sl, met_during)),
+        let met_during = p.activity_met_hours(per.start, during_to);
+        let during = match (bw_during, during_slope) {
+            (Some(w), Some(sl)) => Some((
+                p.implied_intake(w, sl.value, met_during),
+                w,
+                sl.value,
+                sd_of(&sl),
+            )),
             _ => None,
         };
-        let before_to = day_before(per.start, 1);
-        let before_from = day_before(per.start, s.window_days).max(enrolled);
-        let implied_before =
-            if per.start > enrolled && p.trend.slope.range(before_from..=before_to).count() >= 7 {
-                let sl = mean_band(&p.trend.slope, before_from, before_to);
-                let w = mean_band(&p.trend.level, before_from, before_to).map(|b| b.value);
-                match (w, sl) {
-                    (Some(w), Some(sl)) => Some(p.implied_intake(
-                        w,
-                        sl.value,
-                        p.activity_met_hours(before_from, before_to),
-                    )),
-                    _ => None,
+        // Early window.
+        let d7 = day_after(enrolled, 7);
+        let d34 = day_after(enrolled, 34);
+        let (e_from, e_to, from_start) = if per.start > d34 {
+            (d7, d34, false)
+        } else {
+            (enrolled, day_before(per.start, 1), true)
+        };
+        let early = if days_incl(e_from, e_to) >= 14 {
+            match (
+                mean_band(&p.trend.level, e_from, e_to),
+                window_slope(&p.trend, e_from, e_to),
+            ) {
+                (Some(w), Some(sl)) => {
+                    let met = p.activity_met_hours(e_from, e_to);
+                    let i = if from_start {
+                        p.implied_intake_from_start(
+                            w.value,
+                            sl.value,
+                            met,
+                            days_incl(e_from, e_to) as f64,
+                        )
+                    } else {
+                        p.implied_intake(w.value, sl.value, met)
+                    };
+                    Some((i, w.value, sl.value, sd_of(&sl)))
                 }
-            } else {
-                None
-            };
-        let (logged, n_logged) = p.logged(per.start, per.end);
-        let (habit, habit_src) = match logged.filter(|_| n_logged >= MIN_LOGGED_DAYS) {
-            Some(l) => (Some(l), "logged intake"),
-            None => (implied_before, "the implied intake before the plateau"),
+                _ => None,
+            }
+        } else {
+            None
         };
-        let expected_wk = match (habit, bw_start) {
-            (Some(i), Some(w)) => Some(p.expected_slope(w, i, met_during) * 7.0),
+        let change = match (early, during) {
+            (Some(e), Some(d)) => {
+                let diff = d.0 - e.0;
+                let var = (p.lin.rho * d.3).powi(2)
+                    + (p.lin.rho * e.3).powi(2)
+                    + (RHO_REL_SD * p.lin.rho * (d.2 - e.2)).powi(2)
+                    + (EPS_REL_SD * p.lin.epsilon * (d.1 - e.1)).powi(2);
+                let h = Z_95 * var.sqrt();
+                Some((diff, diff - h, diff + h))
+            }
             _ => None,
         };
-        let band_half = bw_start.unwrap_or(p.model.bw0) * PLATEAU_BAND_FRACTION_PER_WEEK;
-        let band_lo = per.lower_wk.map_or(-band_half, |x| x.min(-band_half));
-        let band_hi = per.upper_wk.map_or(band_half, |x| x.max(band_half));
-        let drift = match (implied_before, implied_during) {
-            (Some(b), Some(d)) => Some(d - b),
+        let expected = match (early, bw_start) {
+            (Some(e), Some(w)) => Some((p.expected_slope(w, e.0, met_during), e.3)),
             _ => None,
         };
-        let in_band = expected_wk.is_some_and(|e| e >= band_lo && e <= band_hi);
-        let classification = match drift {
-            Some(d) if d > s.drift_threshold => "intake_drift",
-            Some(_) if in_band => "expected_slowdown",
+        let expected_wk = expected.map(|x| x.0 * 7.0);
+        let band_half = bw_start.unwrap_or(p.model.bw0) * PLATEAU_BAND_FRACTION_PER_WEEK / 7.0;
+        let classification = match (change, expected) {
+            (Some((c, lo, _)), _) if lo > 0.0 && c >= s.drift_threshold => "intake_drift",
+            (Some(_), Some((ex, _))) if ex >= -band_half => "expected_slowdown",
             _ => "undetermined",
         };
         let f0 = |x: Option<f64>| x.map_or("n/a".to_string(), |v| format!("{v:.0}"));
         let f2 = |x: Option<f64>| x.map_or("n/a".to_string(), |v| format!("{v:+.2}"));
         let evidence = format!(
-            "Implied intake {} kcal/d before and {} during (change {}, threshold {:.0}); with \
-             {habit_src} the model expects {} kg/week at {} kg (plateau band {:+.2} to {:+.2}); \
-             observed {} kg/week.",
-            f0(implied_before),
-            f0(implied_during),
-            drift.map_or("n/a".to_string(), |d| format!("{d:+.0}")),
-            s.drift_threshold,
+            "Implied intake {} kcal/d early in the program and {} during the plateau: change {} \
+             (95 % interval {} to {}); at the early intake the model expects {} kg/week at {} kg \
+             (plateau band ±{:.2}); observed {} kg/week.",
+            f0(early.map(|e| e.0)),
+            f0(during.map(|d| d.0)),
+            change.map_or("n/a".to_string(), |c| format!("{:+.0}", c.0)),
+            f0(change.map(|c| c.1)),
+            f0(change.map(|c| c.2)),
             f2(expected_wk),
             bw_start.map_or("n/a".to_string(), |w| format!("{w:.1}")),
-            band_lo,
-            band_hi,
+            band_half * 7.0,
             f2(observed_wk),
         );
         t.rows.push(vec![
@@ -1062,10 +1424,13 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
             text(per.end.to_string()),
             num(observed_wk),
             num(expected_wk),
-            num(implied_before),
-            num(implied_during),
+            num(early.map(|e| e.0)),
+            num(during.map(|d| d.0)),
             text(classification),
             text(evidence),
+            num(change.map(|c| c.0)),
+            num(change.map(|c| c.1)),
+            num(change.map(|c| c.2)),
         ]);
     }
     t

@@ -54,6 +54,30 @@ pub const TAU_AT: f64 = 14.0;
 /// partition is Forbes 2000, Ann N Y Acad Sci 904:359 — citation from memory).
 pub const FORBES_C: f64 = 10.4;
 
+/// Glycogen at baseline, kg, and the weight it carries per kg (glycogen plus about 2.7 kg of
+/// water) (Hall et al. 2011 web appendix; from memory).
+pub const GLYCOGEN_0_KG: f64 = 0.5;
+/// Weight per kg glycogen stored (Hall et al. 2011; from memory).
+pub const GLYCOGEN_WEIGHT_FACTOR: f64 = 3.7;
+/// Sodium retention per unit fall in carbohydrate intake divided by the renal sodium clearance
+/// per litre of extracellular fluid: ξ_CI/ξ_Na = 4000 mg/d / 3000 mg/L/d (Hall 2006, Am J
+/// Physiol Endocrinol Metab 291:E23; Hall et al. 2011 appendix; from memory), litres ≈ kg.
+pub const ECF_PER_CARB_FRACTION_KG: f64 = 4000.0 / 3000.0;
+
+/// Weight of the fast compartments (glycogen with its water, extracellular fluid) that moves
+/// per kcal/d of sustained intake change, kg per kcal/d, at baseline intake `ei0`.
+///
+/// # Formula
+/// In Hall's adult model glycogen settles at G = G₀·√(CI/CI₀) within days and the
+/// extracellular fluid at ΔECF = −(ξ_CI/ξ_Na)·(1 − CI/CI₀); with the carbohydrate share of
+/// intake unchanged (CI/CI₀ = EI/EI₀ = x) the fast weight is 3.7·G₀·(√x − 1) + (ξ_CI/ξ_Na)(x − 1),
+/// whose slope at x = 1 is 3.7·G₀/2 + ξ_CI/ξ_Na ≈ 2.26 kg per 100 % change; divided by EI₀.
+/// This linearisation is what the estimator uses of the glycogen/ECF dynamics: a diet's first
+/// days bring a fast drop of about κ·ΔEI that is water and glycogen, not tissue.
+pub fn fast_compartment_kg_per_kcal(ei0: f64) -> f64 {
+    (GLYCOGEN_WEIGHT_FACTOR * GLYCOGEN_0_KG / 2.0 + ECF_PER_CARB_FRACTION_KG) / ei0.max(500.0)
+}
+
 /// Smallest fat mass the integrator lets the model reach, kg (keeps ln(F/F₀) finite).
 const MIN_FAT_KG: f64 = 0.5;
 

@@ -54,12 +54,14 @@ impl MetricModule for EnergyModule {
             },
             SettingSpec::number(
                 "base_pal",
-                1.4,
+                1.6,
                 "",
                 1.0,
                 2.5,
-                "Physical activity level (TEE/RMR) before logged exercise; 1.4 is the lower \
-                 bound of FAO/WHO/UNU 2004 'sedentary or light'",
+                "Prior centre of the physical activity level (TEE/RMR) before logged exercise \
+                 (SD 0.15; updated from the food logs); 1.6 is the middle of the 'low active' \
+                 band of NASEM 2023 (1.53–1.68) and of free-living adults measured with doubly \
+                 labelled water (Black et al. 1996, Eur J Clin Nutr 50:72; from memory)",
             ),
             SettingSpec {
                 name: "window_days".into(),
@@ -112,7 +114,7 @@ impl MetricModule for EnergyModule {
                 "kcal/d",
                 0.0,
                 1000.0,
-                "Rise in implied intake from before to during a plateau that counts as intake drift",
+                "Smallest rise in implied intake, early in the program to the plateau, called intake drift (its 95 % interval must also exclude zero)",
             ),
             SettingSpec::number(
                 "walking_met",
@@ -292,7 +294,7 @@ mod tests {
         assert_eq!(spec.requires, vec!["trend".to_string()]);
         let s = spec.resolve_settings(&serde_json::Value::Null).unwrap();
         assert_eq!(s["equation"], "mifflin_st_jeor");
-        assert_eq!(s["base_pal"], 1.4);
+        assert_eq!(s["base_pal"], 1.6);
         assert_eq!(s["window_days"], 28);
         assert_eq!(s["target_loss_kg_per_week"], 0.5);
         assert_eq!(s["max_safe_loss_kg_per_week"], 1.0);

@@ -134,16 +134,16 @@ fn d(s: &str) -> NaiveDate {
 
 #[test]
 fn implied_intake_interval_covers_the_true_intake() {
-    // A simulated man (100 kg, 180 cm, 40 y) eats 500 kcal/d below his maintenance for 120
+    // Simulated men (100 kg, 180 cm, 40 y) eat 500 kcal/d below their maintenance for 120
     // days; daily weights are the model's plus Gaussian noise with σ = 0.5 kg (REFERENCE §7.1:
-    // 0.5–1 kg is typical). With no trend output the module fits a straight line to the last
-    // 28 days; its 95 % interval must contain the true intake in about 95 % of participants.
+    // 0.5–1 kg is typical). Each man's activity level and resting energy are drawn from what
+    // the module assumes about people it knows nothing of (PAL 1.6 ± 0.15, resting energy
+    // ± 8 % around Mifflin–St Jeor), so his baseline requirement is unknown to the module. With
+    // no trend output the module fits a straight line to the last 28 days; its 95 % interval
+    // must contain the true intake in about 95 % of participants.
     let enrolled = d("2027-01-04");
     let to = d("2027-05-03"); // day 119
     let n = (to - enrolled).num_days() as usize + 1;
-    let m = model(Sex::Male, 100.0, 180.0, 40.0, 1.4);
-    let truth = m.ei0 - 500.0;
-    let w = m.simulate_constant(n, truth, 0.0);
     let spec = EnergyModule.spec();
     let ctx = ModuleContext {
         program: ProgramInfo {
@@ -167,6 +167,12 @@ fn implied_intake_interval_covers_the_true_intake() {
     let mut covered = 0;
     let mut bias = 0.0;
     for _ in 0..runs {
+        let pal = 1.6 + 0.15 * rng.normal();
+        let mut m = model(Sex::Male, 100.0, 180.0, 40.0, pal);
+        let rmr = m.rmr0 * (1.0 + 0.08 * rng.normal());
+        m = HallModel::new(100.0, m.fm0, rmr, pal);
+        let truth = m.ei0 - 500.0;
+        let w = m.simulate_constant(n, truth, 0.0);
         // The first weigh-in is noise-free so that every run shares the baseline of the truth.
         let weights = (0..n)
             .map(|i| WeighIn {
@@ -200,10 +206,12 @@ fn implied_intake_interval_covers_the_true_intake() {
         let out = EnergyModule.compute(&ctx, &data).unwrap();
         let s = out.scalar_full("implied_intake_kcal_per_day").unwrap();
         let (lo, hi) = (s.lower.unwrap(), s.upper.unwrap());
-        // REFERENCE §3.4 [D]: half-width ≈ ±231 kcal/d for σ = 0.5 kg and 28 daily weights
-        // (t-based with an estimated σ here, so somewhat wider and variable).
+        // REFERENCE §3.4 [D]: the slope's share is ≈ ±231 kcal/d for σ = 0.5 kg and 28 daily
+        // weights (t-based with an estimated σ here, so somewhat wider and variable); the
+        // unknown baseline requirement (12 % of about 2900 kcal/d) adds about ±700 in
+        // quadrature.
         assert!(
-            (120.0..400.0).contains(&((hi - lo) / 2.0)),
+            (600.0..950.0).contains(&((hi - lo) / 2.0)),
             "half-width {}",
             (hi - lo) / 2.0
         );
@@ -215,8 +223,8 @@ fn implied_intake_interval_covers_the_true_intake() {
     let rate = covered as f64 / runs as f64;
     // Binomial(200, 0.95) has SD 1.5 %; 0.90..=0.99 is more than ±3 SD.
     assert!((0.90..=0.99).contains(&rate), "coverage {rate}");
-    // The linearised estimator on the nonlinear model's data is nearly unbiased here (about
-    // −13 kcal/d over 2000 runs, against a half-width of about 240).
+    // The linearised estimator on the nonlinear model's data is nearly unbiased: the mean error
+    // over 200 people is within 3 standard errors (SD of one error ≈ 370 kcal/d → SE ≈ 26).
     let bias = bias / runs as f64;
-    assert!(bias.abs() < 40.0, "mean bias {bias}");
+    assert!(bias.abs() < 80.0, "mean bias {bias}");
 }

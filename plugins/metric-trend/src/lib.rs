@@ -35,6 +35,10 @@ use llt::{
 };
 use plateau::{PlateauSettings, WindowKind, classify_window, find_periods};
 
+/// Length of the windows of the `weight_slope_28d` series, days (four whole weeks, so the
+/// weekly weight cycle cancels; REFERENCE §7.3).
+pub const WINDOW_SLOPE_DAYS: usize = 28;
+
 /// The built-in `trend` module.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct TrendModule;
@@ -98,6 +102,7 @@ impl Settings {
                 min_prior_loss_percent: ctx
                     .setting_f64("min_prior_loss_percent", 3.0)
                     .clamp(0.0, 20.0),
+                sd_inflation: 1.0,
             },
             outlier_z: ctx
                 .setting_f64("outlier_z", DEFAULT_OUTLIER_Z)
@@ -198,6 +203,42 @@ impl MetricModule for TrendModule {
                     "Smoothed rate of change per day with 95 % band",
                 ),
                 OutputSpec::new("weigh_ins", "series", "kg", "Weigh-ins used for the trend"),
+                OutputSpec::new(
+                    "weight_slope_28d",
+                    "series",
+                    "kg/d",
+                    "Mean rate of change over the 28 days ending each day, with 95 % band",
+                ),
+                OutputSpec::new(
+                    "plateau_confidence",
+                    "scalar",
+                    "",
+                    "Probability (0–1) that the current plateau's mean slope lies in the band",
+                ),
+                OutputSpec::new(
+                    "plateau_onset",
+                    "text",
+                    "",
+                    "Day the trend entered the plateau band (current plateau)",
+                ),
+                OutputSpec::new(
+                    "regain_kg",
+                    "scalar",
+                    "kg",
+                    "Trend weight now minus its lowest point so far, 95 % interval",
+                ),
+                OutputSpec::new(
+                    "regain_confidence",
+                    "scalar",
+                    "",
+                    "Probability (0–1) that the trend has risen more than 1 % of baseline from its lowest point",
+                ),
+                OutputSpec::new(
+                    "regain_verdict",
+                    "text",
+                    "",
+                    "regaining, not_regaining, no_prior_loss or insufficient_data",
+                ),
                 OutputSpec::new(
                     "periods",
                     "table",
@@ -336,6 +377,7 @@ fn periods_table(rows: Vec<Vec<Cell>>) -> Table {
             col("slope_upper_kg_per_week", "kg/wk", "Slope, upper 95 %"),
             col("weight_start_kg", "kg", "Weight at start"),
             col("weight_end_kg", "kg", "Weight at end"),
+            col("confidence", "", "Confidence"),
         ],
         rows,
     }
@@ -414,6 +456,10 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         }),
     );
     let sm = rts_smoother(run);
+    let inflation = correlated_scatter_inflation(&sm);
+    let mut settings = *settings;
+    settings.plateau.sd_inflation = inflation;
+    let settings = &settings;
     let has_obs: Vec<bool> = sm
         .filter
         .steps
@@ -435,7 +481,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         .sum();
 
     // Series: one point per day from the first to the last weigh-in.
-    let band = |i: usize, k: usize| Z_95 * sm.cov[i][k][k].max(0.0).sqrt();
+    let band = |i: usize, k: usize| Z_95 * inflation * sm.cov[i][k][k].max(0.0).sqrt();
     let trend_points = (0..=last_idx)
         .map(|i| Point {
             date: add_days(first, i),
@@ -466,13 +512,39 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         label: "Weight change per day".into(),
         points: slope_points,
     });
+    // Mean slope over the four weeks ending each day, with its exact smoothed variance (the
+    // lag covariance of the RTS smoother) × the correlated-scatter inflation: what a 28-day
+    // energy-balance window needs (the mean of daily slope bands would overstate it).
+    let window_points = (1..=last_idx)
+        .filter_map(|i| {
+            let s = i.saturating_sub(WINDOW_SLOPE_DAYS - 1);
+            let (m, sd) = sm.mean_slope(s, i)?;
+            let h = Z_95 * inflation * sd;
+            Some(Point {
+                date: add_days(first, i),
+                value: m,
+                lower: Some(m - h),
+                upper: Some(m + h),
+            })
+        })
+        .collect();
     out.series.push(weigh_in_series(data, to, &skipped_dates));
+    out.series.push(Series {
+        name: "weight_slope_28d".into(),
+        unit: "kg/d".into(),
+        step: "daily".into(),
+        label: "Mean weight change per day over the 28 days ending each day (fewer at the start)"
+            .into(),
+        points: window_points,
+    });
 
     // Periods.
-    let rows = find_periods(&sm, &has_obs, &settings.plateau)
-        .into_iter()
+    let periods_now = find_periods(&sm, &has_obs, &settings.plateau);
+    let rows = periods_now
+        .iter()
         .filter_map(|p| {
             let code = p.kind.table_code()?;
+            let p = *p;
             Some(vec![
                 Cell::Text(code.into()),
                 Cell::Text(iso(add_days(first, p.start))),
@@ -483,6 +555,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
                 num(p.upper * 7.0),
                 num(sm.mean[p.start][0]),
                 num(sm.mean[p.end][0]),
+                num(p.confidence),
             ])
         })
         .collect();
@@ -571,9 +644,161 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         "Days since the last weigh-in",
     );
 
-    let status = window.map_or("insufficient_data", |w| status_code(&w, e + 1 >= l));
+    let mut status = window.map_or("insufficient_data", |w| status_code(&w, e + 1 >= l));
+    // A plateau found on the whole trajectory that is still going at the last weigh-in is the
+    // current status unless the last window shows a clear loss or rise.
+    let current_plateau = periods_now
+        .iter()
+        .rev()
+        .find(|p| p.kind == WindowKind::Plateau && p.end + 3 >= last_idx);
+    if current_plateau.is_some() && matches!(status, "stable" | "unclear" | "insufficient_data") {
+        status = "plateau";
+    }
     out.push_text("status", status, status_label(status));
+    out.push_scalar(
+        "plateau_confidence",
+        current_plateau.map(|p| p.confidence),
+        "",
+        "Probability that the current plateau's mean slope lies inside the plateau band",
+    );
+    out.push_text(
+        "plateau_onset",
+        &current_plateau.map_or(String::new(), |p| iso(add_days(first, p.start))),
+        "Day the trend entered the plateau band (current plateau)",
+    );
+
+    // Regain by level: the trend now against its lowest point so far.
+    let regain = regain_by_level(&sm, last_idx, inflation, &settings.plateau);
+    let slope_regain = status == "regaining" && regain.prior_loss_ok;
+    out.push_interval(
+        "regain_kg",
+        Some(regain.rise),
+        Some(regain.rise - Z_95 * regain.sd),
+        Some(regain.rise + Z_95 * regain.sd),
+        "kg",
+        "Trend weight now minus its lowest point so far",
+    );
+    out.push_scalar(
+        "regain_confidence",
+        Some(if slope_regain { regain.confidence.max(0.95) } else { regain.confidence }),
+        "",
+        "Probability that the trend has risen by more than 1 % of baseline weight from its lowest point",
+    );
+    let verdict = if !reaches_period_end {
+        "insufficient_data"
+    } else if !regain.prior_loss_ok {
+        "no_prior_loss"
+    } else if slope_regain || regain.confidence >= REGAIN_CONFIDENCE {
+        "regaining"
+    } else {
+        "not_regaining"
+    };
+    out.push_text(
+        "regain_verdict",
+        verdict,
+        match verdict {
+            "regaining" => "Weight has come back up from its lowest point",
+            "not_regaining" => "No clear regain from the lowest point",
+            "no_prior_loss" => "No loss of at least the set share of baseline yet",
+            _ => "Not enough recent weigh-ins to tell",
+        },
+    );
     out
+}
+
+/// Confidence the level test needs to call a regain (one-sided; program choice: 0.9 keeps false
+/// alarms rare because the test already asks for a rise of more than 1 % of baseline weight).
+const REGAIN_CONFIDENCE: f64 = 0.9;
+
+/// Regain measured by level.
+struct RegainLevel {
+    rise: f64,
+    sd: f64,
+    confidence: f64,
+    prior_loss_ok: bool,
+}
+
+/// `rise = μ_now − min_{d ≤ now} μ_d` with `Var = P_now + P_min − 2·Cov(μ_min, μ_now)` from the
+/// smoother (× `inflation`²); confidence = P(rise > 1 % of baseline) (program choice: half the
+/// 2 % that ordinary hydration swings already reach, Stevens et al. 2006, Int J Obes 30:391).
+fn regain_by_level(
+    sm: &llt::SmoothedRun,
+    now: usize,
+    inflation: f64,
+    settings: &PlateauSettings,
+) -> RegainLevel {
+    let (imin, min) = sm.mean[..=now]
+        .iter()
+        .enumerate()
+        .map(|(i, m)| (i, m[0]))
+        .fold((0, f64::INFINITY), |a, b| if b.1 < a.1 { b } else { a });
+    let baseline = sm.mean[0][0];
+    let rise = sm.mean[now][0] - min;
+    let cov = if imin < now {
+        sm.cross_cov(imin, now)[0][0]
+    } else {
+        sm.cov[now][0][0]
+    };
+    let var = (sm.cov[imin][0][0] + sm.cov[now][0][0] - 2.0 * cov).max(0.0);
+    let sd = inflation * var.sqrt();
+    let threshold = 0.01 * baseline;
+    let confidence = if sd > 0.0 {
+        1.0 - plateau::normal_cdf((threshold - rise) / sd)
+    } else if rise > threshold {
+        1.0
+    } else {
+        0.0
+    };
+    RegainLevel {
+        rise,
+        sd,
+        confidence,
+        // Half the plateau's prior-loss setting: the smoothed level on the first day is itself
+        // uncertain by about 1 % of weight in a diet's first weeks (fast water loss), and a
+        // confirmed rise of more than 1 % from the lowest point is the evidence that matters.
+        prior_loss_ok: baseline - min >= 0.5 * settings.min_prior_loss_percent / 100.0 * baseline,
+    }
+}
+
+/// Inflation of slope and level bands for correlated day-to-day scatter: the lag-one
+/// autocorrelation r₁ of the residuals around the smoothed trend (from pairs of consecutive
+/// days; from pairs two days apart as √r₂ when consecutive days are too few), carried to the
+/// median spacing k of the weigh-ins (ρ = r₁ᵏ), then [`plateau::ar1_inflation`]. With fewer
+/// than 10 pairs the scatter is treated as independent at that spacing.
+fn correlated_scatter_inflation(sm: &llt::SmoothedRun) -> f64 {
+    let resid: Vec<Option<f64>> = sm
+        .filter
+        .steps
+        .iter()
+        .zip(&sm.mean)
+        .map(|(st, m)| {
+            (st.status == StepStatus::Used).then(|| st.innovation + st.predicted_mean[0] - m[0])
+        })
+        .collect();
+    let lag_corr = |lag: usize| -> Option<f64> {
+        let (mut sxy, mut sxx, mut n) = (0.0, 0.0, 0);
+        for i in lag..resid.len() {
+            if let (Some(a), Some(b)) = (resid[i - lag], resid[i]) {
+                sxy += a * b;
+                sxx += 0.5 * (a * a + b * b);
+                n += 1;
+            }
+        }
+        (n >= 10 && sxx > 0.0).then(|| sxy / sxx)
+    };
+    let r1 = lag_corr(1).or_else(|| lag_corr(2).map(|r2| r2.max(0.0).sqrt()));
+    let Some(r1) = r1 else {
+        return 1.0;
+    };
+    let obs: Vec<usize> = resid
+        .iter()
+        .enumerate()
+        .filter_map(|(i, r)| r.map(|_| i))
+        .collect();
+    let mut gaps: Vec<usize> = obs.windows(2).map(|w| w[1] - w[0]).collect();
+    gaps.sort_unstable();
+    let k = gaps.get(gaps.len() / 2).copied().unwrap_or(1).max(1);
+    plateau::ar1_inflation(r1.max(0.0).powi(k as i32))
 }
 
 /// Status of the last window.

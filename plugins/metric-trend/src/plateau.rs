@@ -21,6 +21,9 @@ pub struct PlateauSettings {
     pub band_percent_per_week: f64,
     /// Loss before a window, % of baseline, needed to call a plateau or a regain (default 3).
     pub min_prior_loss_percent: f64,
+    /// Factor applied to every slope standard deviation for correlated day-to-day scatter
+    /// (1 = independent scatter; see [`ar1_inflation`]).
+    pub sd_inflation: f64,
 }
 
 impl Default for PlateauSettings {
@@ -30,6 +33,7 @@ impl Default for PlateauSettings {
             min_weigh_ins: 8,
             band_percent_per_week: 0.25,
             min_prior_loss_percent: 3.0,
+            sd_inflation: 1.0,
         }
     }
 }
@@ -141,6 +145,7 @@ pub fn classify_window(
     let Some((m, sd)) = sm.mean_slope(s, e) else {
         return v;
     };
+    let sd = sd * settings.sd_inflation;
     v.slope = m;
     v.lower = m - Z_95 * sd;
     v.upper = m + Z_95 * sd;
@@ -186,6 +191,9 @@ pub struct Period {
     pub lower: f64,
     /// Upper bound, kg/d.
     pub upper: f64,
+    /// For plateaus: probability (0–1) that the period's mean slope lies inside the band, under
+    /// the model's normal approximation; NaN for other kinds.
+    pub confidence: f64,
 }
 
 /// Classifies every full window (one per end day) and merges runs of consecutive windows of
@@ -214,7 +222,10 @@ pub fn find_periods(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettin
     let mut open: Option<(WindowKind, usize, usize)> = None;
     let close = |k: WindowKind, s: usize, e: usize, periods: &mut Vec<Period>| {
         let (slope, lower, upper) = match sm.mean_slope(s, e) {
-            Some((m, sd)) => (m, m - Z_95 * sd, m + Z_95 * sd),
+            Some((m, sd)) => {
+                let sd = sd * settings.sd_inflation;
+                (m, m - Z_95 * sd, m + Z_95 * sd)
+            }
             None => (f64::NAN, f64::NAN, f64::NAN),
         };
         periods.push(Period {
@@ -224,12 +235,19 @@ pub fn find_periods(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettin
             slope,
             lower,
             upper,
+            confidence: f64::NAN,
         });
     };
     for e in (l - 1)..n {
         let s = e + 1 - l;
         let v = classify_window(sm, has_obs, s, e, baseline, run_min[s], settings);
-        let kind = v.kind.table_code().map(|_| v.kind);
+        // Plateaus are found on the whole smoothed trajectory ([`plateau_runs`]), not window
+        // by window, so that their onset is where the trend entered the band.
+        let kind = v
+            .kind
+            .table_code()
+            .filter(|_| v.kind != WindowKind::Plateau)
+            .map(|_| v.kind);
         match (open, kind) {
             (Some((k, ps, _)), Some(nk)) if k == nk => open = Some((k, ps, e)),
             (o, nk) => {
@@ -243,6 +261,154 @@ pub fn find_periods(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettin
     if let Some((k, ps, pe)) = open {
         close(k, ps, pe, &mut periods);
     }
+    periods.extend(plateau_runs(sm, has_obs, settings));
     periods.sort_by_key(|p| (p.start, p.end));
     periods
+}
+
+/// Shortest stretch of days inside the band that counts as the trend being in it, days.
+const MIN_STRETCH_DAYS: usize = 7;
+
+/// Standard normal CDF Φ(x), from the complementary error function approximation of
+/// Abramowitz & Stegun 1964, *Handbook of Mathematical Functions*, 7.1.26 (|error| < 1.5·10⁻⁷).
+pub fn normal_cdf(x: f64) -> f64 {
+    let z = x.abs() / std::f64::consts::SQRT_2;
+    let t = 1.0 / (1.0 + 0.327_591_1 * z);
+    let poly = t
+        * (0.254_829_592
+            + t * (-0.284_496_736
+                + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
+    let erfc = poly * (-z * z).exp();
+    if x >= 0.0 {
+        1.0 - 0.5 * erfc
+    } else {
+        0.5 * erfc
+    }
+}
+
+/// Probability that a normal quantity with mean `m` and SD `sd` lies in `[−delta, delta]`.
+pub fn prob_inside(m: f64, sd: f64, delta: f64) -> f64 {
+    if sd.is_nan() || sd <= 0.0 {
+        return if m.abs() <= delta { 1.0 } else { 0.0 };
+    }
+    (normal_cdf((delta - m) / sd) - normal_cdf((-delta - m) / sd)).clamp(0.0, 1.0)
+}
+
+/// Variance-inflation factor for slopes when day-to-day scatter is AR(1) with lag-one
+/// autocorrelation `r`: √((1 + r)/(1 − r)), the usual large-sample factor for the variance of a
+/// mean or trend under AR(1) errors (e.g. Box, Jenkins & Reinsel, *Time Series Analysis*, 4th
+/// ed. 2008; from memory). `r` is held to [0, 0.8].
+pub fn ar1_inflation(r: f64) -> f64 {
+    let r = if r.is_finite() {
+        r.clamp(0.0, 0.8)
+    } else {
+        0.0
+    };
+    ((1.0 + r) / (1.0 - r)).sqrt()
+}
+
+/// Plateaus found retrospectively on the smoothed trajectory.
+///
+/// # Method
+/// 1. For every day t the mean slope of the smoothed trend over the centred window
+///    `[t − L/2, t + L/2 − 1]` (cut at the ends of the data, at least 14 days) is compared with
+///    the band `±δ_t` (δ_t = band % × μ_t / 7). Centring makes the window's verdict describe day
+///    t itself, so the first day inside the band is where the trend entered it.
+/// 2. Days inside the band form runs; runs separated by fewer than 7 days outside are joined
+///    (a brief excursion does not end a plateau).
+/// 3. A run is a candidate when it lasts at least `window_days` (three quarters of that when it
+///    reaches the last day, which is still going on) and the loss reached by its first day —
+///    baseline level minus the lowest level so far — is at least `min_prior_loss_percent` of
+///    baseline. Its **onset** is the run's first day.
+/// 4. Confidence = P(mean slope over the run ∈ [−δ, δ]) under the smoother's normal
+///    approximation (SD × `sd_inflation`). With at least 3 weigh-in days in the run and
+///    confidence ≥ 0.5 the run is a `plateau`; otherwise the data cannot tell a plateau
+///    from a slow change and the run is `insufficient_data`.
+///
+/// The defaults are program configuration (REFERENCE §7.3: no consensus definition exists).
+pub fn plateau_runs(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettings) -> Vec<Period> {
+    let n = sm.mean.len();
+    if n < 14 {
+        return Vec::new();
+    }
+    let delta = |t: usize| settings.band_percent_per_week / 100.0 * sm.mean[t][0] / 7.0;
+    let half = (settings.window_days / 2).max(7);
+    let inside = |t: usize| -> bool {
+        let s = t.saturating_sub(half);
+        let e = (t + half - 1).min(n - 1);
+        if e - s < 13 {
+            return false;
+        }
+        sm.mean_slope(s, e)
+            .is_some_and(|(m, _)| m.abs() <= delta(t))
+    };
+    // Stretches inside the band; a stretch of fewer than 7 days is a passing wobble of the
+    // estimate, not an entry into the band (a noisy slope crosses a threshold first earlier
+    // than its mean does), so it neither starts nor joins a run.
+    let mut stretches: Vec<(usize, usize)> = Vec::new();
+    let mut t = 0;
+    while t < n {
+        if inside(t) {
+            let a = t;
+            while t + 1 < n && inside(t + 1) {
+                t += 1;
+            }
+            if t - a + 1 >= MIN_STRETCH_DAYS || t + 1 == n {
+                stretches.push((a, t));
+            }
+        }
+        t += 1;
+    }
+    let mut runs: Vec<(usize, usize)> = Vec::new();
+    for (a, b) in stretches {
+        match runs.last_mut() {
+            Some(last) if a - last.1 - 1 < 7 => last.1 = b,
+            _ => runs.push((a, b)),
+        }
+    }
+    let baseline = sm.mean[0][0];
+    let loss_needed = settings.min_prior_loss_percent / 100.0 * baseline;
+    let mut run_min = Vec::with_capacity(n);
+    let mut cur = f64::INFINITY;
+    for m in &sm.mean {
+        cur = cur.min(m[0]);
+        run_min.push(cur);
+    }
+    let mut out = Vec::new();
+    for (a0, b) in runs {
+        // The onset is the first day of the run by which the loss has been reached.
+        let Some(a) = (a0..=b).find(|&d| baseline - run_min[d] >= loss_needed) else {
+            continue;
+        };
+        let min_len = if b + 1 == n {
+            (3 * settings.window_days).div_ceil(4)
+        } else {
+            settings.window_days
+        };
+        if b - a + 1 < min_len {
+            continue;
+        }
+        let Some((m, sd)) = sm.mean_slope(a, b) else {
+            continue;
+        };
+        let sd = sd * settings.sd_inflation;
+        let d = delta(b);
+        let conf = prob_inside(m, sd, d);
+        let (days, _) = coverage(has_obs, a, b);
+        let kind = if days >= 3 && conf >= 0.5 {
+            WindowKind::Plateau
+        } else {
+            WindowKind::InsufficientData
+        };
+        out.push(Period {
+            kind,
+            start: a,
+            end: b,
+            slope: m,
+            lower: m - Z_95 * sd,
+            upper: m + Z_95 * sd,
+            confidence: conf,
+        });
+    }
+    out
 }

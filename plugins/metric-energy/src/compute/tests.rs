@@ -213,11 +213,13 @@ fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
         .collect();
     // The forecast here runs to the program end only (no minimum horizon), so it can be
     // compared with the simulated truth, which ends there.
+    // The prior activity level is centred on the simulated person's (1.4), so the test checks
+    // the estimator, not the prior; the logs then update the baseline requirement.
     let mut c = ctx(
         enrolled,
         end,
         period,
-        serde_json::json!({"forecast_min_days": 0}),
+        serde_json::json!({"forecast_min_days": 0, "base_pal": 1.4}),
     );
     c.earlier.insert(
         "trend".into(),
@@ -236,22 +238,49 @@ fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
     let age_now = data.profile.age_on(period.to);
     let rmr = mifflin_st_jeor(Sex::Male, w_now, 180.0, age_now);
     assert!((out.scalar("rmr_kcal_per_day").unwrap() - rmr).abs() < 1e-9);
-    assert!((out.scalar("tdee_kcal_per_day").unwrap() - 1.4 * rmr).abs() < 1e-9);
+    // Expenditure by energy balance: the model's own total expenditure on the last day
+    // (resting and activity terms, thermic effect, adaptive thermogenesis and deposition costs,
+    // Hall et al. 2011), within 40 kcal/d.
+    let states = model.simulate_from(model.baseline_state(), n - 1, |_| true_intake, |_| 0.0);
+    let st = states[n - 1];
+    let (df, _) = model.derivatives(&st, true_intake, 0.0);
+    let dl = df * crate::dynamics::FORBES_C / st.fat_kg;
+    let tee_true = model.expenditure(&st, true_intake, 0.0)
+        + crate::dynamics::ETA_F * df
+        + crate::dynamics::ETA_L * dl;
+    let tdee = out.scalar("tdee_kcal_per_day").unwrap();
+    assert!((tdee - tee_true).abs() < 40.0, "tdee {tdee} vs {tee_true}");
     let act = out.scalar("activity_net_kcal_per_day").unwrap();
     assert!(act == 0.0 && act.is_sign_positive(), "{act}");
 
     // Implied intake: the linearised estimator on the nonlinear model's own trajectory, ~5 kg
-    // down, is within 30 kcal/d of the truth, and its interval contains the truth.
+    // down, is within 40 kcal/d of the truth (the logs, which under-count by 400 kcal/d or
+    // about 18 %, close to the 20 % the update assumes, move the baseline a little), and its
+    // interval contains the truth.
     let imp = out.scalar_full("implied_intake_kcal_per_day").unwrap();
     let v = imp.value.unwrap();
     assert!(
-        (v - true_intake).abs() < 30.0,
+        (v - true_intake).abs() < 40.0,
         "implied {v} vs true {true_intake}"
     );
     assert!(imp.lower.unwrap() < true_intake && true_intake < imp.upper.unwrap());
-    // Interval half-width = ρ × 0.005 kg/d.
+    // The interval carries the unknown baseline requirement as well as the slope: wider than
+    // the slope's share alone (ρ × 0.005 kg/d), narrower than the prior alone (±1.96 × 12 %).
     let lin = LinearisedModel::from_baseline(100.0, model.fm0, model.rmr0, 1.4);
-    assert!((imp.upper.unwrap() - v - lin.rho * 0.005).abs() < 1e-6);
+    let half = imp.upper.unwrap() - v;
+    assert!(
+        half > lin.rho * 0.005 && half < 1.96 * 0.123 * model.ei0,
+        "{half}"
+    );
+    assert_eq!(
+        out.scalar("implied_intake_lower_kcal_per_day"),
+        imp.lower,
+        "the lower bound is also its own output"
+    );
+    // Under-reporting: logged 400 below a true intake of about 2200 kcal/d, about 18 %.
+    let u = out.scalar("underreporting_percent").unwrap();
+    let u_true = 100.0 * 400.0 / true_intake;
+    assert!((u - u_true).abs() < 3.0, "{u} vs {u_true}");
 
     // Logged intake, gap (positive: more eaten than logged) and its flag.
     assert_eq!(out.scalar("logged_days"), Some(20.0));
@@ -260,13 +289,17 @@ fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
     );
     let gap = out.scalar("intake_gap_kcal_per_day").unwrap();
     assert!((gap - 400.0).abs() < 30.0, "gap {gap}");
+    // The gap's 95 % interval carries the unknown baseline requirement, so a 400 kcal/d gap
+    // does not show that the logs miss more than 300 kcal/d: no flag.
+    let g = out.scalar_full("intake_gap_kcal_per_day").unwrap();
+    assert!(g.lower.unwrap() < 300.0, "{g:?}");
     assert!(
-        out.flags
+        !out.flags
             .iter()
             .any(|f| f.code == "logs_inconsistent_with_trend")
     );
     let balance = out.scalar("energy_balance_kcal_per_day").unwrap();
-    assert!((balance - (v - 1.4 * rmr)).abs() < 1e-9);
+    assert!((balance - (v - tdee)).abs() < 1e-9);
 
     // Forecast: continuing the true run to program end within 0.3 kg, band ordered.
     let h = (end - period.to).num_days() as usize;
@@ -289,13 +322,14 @@ fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
 
     // Weekly table: 17 weeks from 2027-01-04 to 2027-04-30. The linearised estimator assumes
     // adaptive thermogenesis has settled (τ_AT = 14 d), so in the first weeks it reads the
-    // faster early loss as a lower intake; from week 4 on it is within 40 kcal/d of the truth.
+    // faster early loss as a lower intake; from week 4 on it is within 60 kcal/d of the truth
+    // (40 from the estimator, up to 20 more from the logs' pull on the baseline).
     let wk = out.table("weekly_energy").unwrap();
     assert_eq!(wk.rows.len(), 17);
     assert_eq!(cell_text(wk, 0, "week_start"), "2027-01-04");
     for r in 1..wk.rows.len() {
         let i = cell_num(wk, r, "implied_intake_kcal_per_day").unwrap();
-        let tol = if r >= 3 { 40.0 } else { 100.0 };
+        let tol = if r >= 3 { 60.0 } else { 120.0 };
         assert!((i - true_intake).abs() < tol, "week {r}: {i}");
         assert!(cell_num(wk, r, "expenditure_kcal_per_day").unwrap() > 2000.0);
     }
@@ -314,7 +348,17 @@ fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
         (cut - lin.rho * (-0.5 / 7.0 - slope_now)).abs() < 15.0,
         "cut {cut}"
     );
-    assert_eq!(cell_text(opt, 0, "feasible"), "yes");
+    // The point estimate would stay above the 1500 kcal/d floor, but the low end of the
+    // implied intake minus the cut would not: checked on the uncertain side, the intake option
+    // is refused and says why.
+    let resulting = cell_num(opt, 0, "resulting_intake_kcal_per_day").unwrap();
+    let low = out.scalar("implied_intake_lower_kcal_per_day").unwrap();
+    assert!(
+        resulting >= 1500.0 && low + cut < 1500.0,
+        "{resulting} {low} {cut}"
+    );
+    assert_eq!(cell_text(opt, 0, "feasible"), "no");
+    assert!(cell_text(opt, 0, "reason").contains("low end of the estimate"));
     let minutes = cell_num(opt, 1, "change_per_day").unwrap();
     let expect_min = (1.0 - BETA) * -cut / (2.5 * w_now / 60.0);
     assert!(
@@ -365,14 +409,17 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
     // The combined row: intake down to the floor, the rest by walking. Its minutes are the
     // walking-only minutes scaled by the share of the intake change left after the cut.
     assert_eq!(cell_text(opt, 2, "kind"), "combined");
+    // Checked on the uncertain side: the cut keeps the low end of the implied intake at 1200.
+    let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
+    let low = out.scalar("implied_intake_lower_kcal_per_day").unwrap();
+    let cut = (low - 1200.0).max(0.0);
     assert_eq!(
         cell_num(opt, 2, "resulting_intake_kcal_per_day"),
-        Some(1200.0)
+        Some(imp - cut)
     );
-    let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
     let full_cut = -cell_num(opt, 0, "change_per_day").unwrap();
     let walk_only = cell_num(opt, 1, "change_per_day").unwrap();
-    let expected = walk_only * (full_cut - (imp - 1200.0)) / full_cut;
+    let expected = walk_only * (full_cut - cut) / full_cut;
     let combined = cell_num(opt, 2, "change_per_day").unwrap();
     assert!(
         (combined - expected).abs() < 1e-6,
@@ -394,8 +441,9 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
         assert_eq!(cell_text(opt, r, "feasible"), "no");
         assert!(cell_text(opt, r, "reason").contains("NIH/NHLBI 1998"));
     }
-    // Weight stable at baseline: the implied intake is the baseline maintenance intake.
-    let ei0 = mifflin_st_jeor(Sex::Female, 60.0, 160.0, 60.0) * 1.4;
+    // Weight stable at baseline: the implied intake is the baseline maintenance intake, resting
+    // energy × the default activity level 1.6 (no food logs to update it).
+    let ei0 = mifflin_st_jeor(Sex::Female, 60.0, 160.0, 60.0) * 1.6;
     let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
     assert!((imp - ei0).abs() < 1.0, "{imp} vs {ei0}");
 }
@@ -431,7 +479,7 @@ fn plateau_from_intake_drift_is_told_apart_from_the_expected_slowdown() {
             from: d("2027-05-01"),
             to,
         },
-        serde_json::Value::Null,
+        serde_json::json!({"base_pal": 1.4}),
     );
     c.earlier.insert(
         "trend".into(),
@@ -480,7 +528,7 @@ fn plateau_from_intake_drift_is_told_apart_from_the_expected_slowdown() {
             from: day_before(to, 30),
             to,
         },
-        serde_json::Value::Null,
+        serde_json::json!({"base_pal": 1.4}),
     );
     c.earlier.insert(
         "trend".into(),
@@ -525,7 +573,12 @@ fn without_trend_output_a_straight_line_fit_is_used_and_flagged() {
             source: None,
         })
         .collect();
-    let c = ctx(enrolled, d("2027-06-30"), period, serde_json::Value::Null);
+    let c = ctx(
+        enrolled,
+        d("2027-06-30"),
+        period,
+        serde_json::json!({"base_pal": 1.4}),
+    );
     let out = EnergyModule.compute(&c, &data).unwrap();
     assert!(out.flags.iter().any(|f| f.code == "insufficient_data"));
     let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
@@ -625,10 +678,12 @@ fn activity_is_counted_net_of_rest_and_raises_the_implied_intake() {
     let out = EnergyModule.compute(&c, &data).unwrap();
     // (3.5 − 1) × 85 kg × 1 h = 212.5 kcal/d net.
     assert!((out.scalar("activity_net_kcal_per_day").unwrap() - 212.5).abs() < 1e-9);
-    let dt = out.scalar("tdee_kcal_per_day").unwrap() - base.scalar("tdee_kcal_per_day").unwrap();
-    assert!((dt - 212.5).abs() < 1e-9);
-    // Weight held steady while walking means more was eaten: 212.5/(1 − β) more.
+    // Weight held steady while walking means more was eaten: 212.5/(1 − β) more (in Hall's
+    // model the higher intake brings its own thermic effect and adaptive response), and with
+    // weight steady the expenditure equals that intake, so it rises by the same amount.
     let di = out.scalar("implied_intake_kcal_per_day").unwrap()
         - base.scalar("implied_intake_kcal_per_day").unwrap();
     assert!((di - 212.5 / (1.0 - BETA)).abs() < 1e-6, "{di}");
+    let dt = out.scalar("tdee_kcal_per_day").unwrap() - base.scalar("tdee_kcal_per_day").unwrap();
+    assert!((dt - di).abs() < 1e-9, "{dt} vs {di}");
 }

@@ -1,0 +1,659 @@
+//! Validation harness for cohortpress's estimates.
+//!
+//! [`truth`] simulates people whose truth is known (a richer model than the estimators, sharing
+//! no code with them); [`run_person`] feeds what each person recorded through the real `trend`
+//! and `energy` modules exactly as the runner does, and [`Summary`] scores the estimates
+//! against the truth: interval coverage, errors, plateau onset, regain detection, plateau
+//! causes and forecasts, overall and per archetype.
+
+#![forbid(unsafe_code)]
+
+pub mod rng;
+pub mod truth;
+
+use chrono::{Days, NaiveDate};
+use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::{
+    ActivityEntry, Cell, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData,
+    Period, Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
+};
+use cohortpress_metric_energy::EnergyModule;
+use cohortpress_metric_trend::TrendModule;
+use std::collections::BTreeMap;
+use truth::{Archetype, Person, Weighing};
+
+/// First day of every simulated program (a Monday).
+pub fn day0() -> NaiveDate {
+    NaiveDate::from_ymd_opt(2027, 1, 4).expect("valid date")
+}
+
+fn date(d: usize) -> NaiveDate {
+    day0()
+        .checked_add_days(Days::new(d as u64))
+        .expect("date in range")
+}
+
+fn day_of(d: NaiveDate) -> i64 {
+    (d - day0()).num_days()
+}
+
+/// The participant data the modules see for a simulated person.
+pub fn participant_data(p: &Person, targets: &Targets) -> ParticipantData {
+    let profile = Profile {
+        id: format!("SIM-{:04}", p.index),
+        name: None,
+        sex: if p.male { Sex::Male } else { Sex::Female },
+        birth_date: None,
+        age_years: p.age.floor(),
+        height: Length::from_cm((p.height_cm * 10.0).round() / 10.0),
+        enrolled: day0(),
+        withdrew: p.withdrew.map(date),
+        groups: BTreeMap::new(),
+        body_fat_percent: None,
+        targets: targets.clone(),
+        flags: vec![],
+    };
+    ParticipantData {
+        profile,
+        weights: p
+            .obs
+            .iter()
+            .map(|o| WeighIn {
+                date: date(o.day),
+                time: None,
+                weight: Mass::from_kg(o.kg),
+                source: Some(o.source.to_string()),
+            })
+            .collect(),
+        intake: p
+            .logs
+            .iter()
+            .map(|(d, kcal)| IntakeDay {
+                date: date(*d),
+                kcal: *kcal,
+                carbs_g: None,
+                fat_g: None,
+                protein_g: None,
+                free_sugars_g: None,
+            })
+            .collect(),
+        activity: p
+            .walks
+            .iter()
+            .map(|w| ActivityEntry {
+                date: date(w.day),
+                activity: "walking".into(),
+                minutes: w.minutes,
+                met: w.met,
+                met_source: "given in file".into(),
+                steps: None,
+            })
+            .collect(),
+        sessions: vec![],
+        labs: vec![],
+    }
+}
+
+/// Runs the `trend` then the `energy` module for the 28-day period ending on day `end`.
+pub fn run_modules(
+    data: &ParticipantData,
+    days: usize,
+    end: usize,
+) -> (ModuleOutput, ModuleOutput) {
+    let program = ProgramInfo {
+        id: "validation".into(),
+        title: "Validation".into(),
+        start: day0(),
+        end: date(days - 1),
+        units: UnitSystem::Metric,
+        targets: Targets::default(),
+    };
+    let period = Period {
+        from: date(end.saturating_sub(27)),
+        to: date(end),
+    };
+    let mut ctx = ModuleContext {
+        program,
+        period,
+        as_of: date(end),
+        settings: TrendModule
+            .spec()
+            .resolve_settings(&serde_json::Value::Null)
+            .expect("defaults resolve"),
+        earlier: BTreeMap::new(),
+    };
+    let trend = TrendModule.compute(&ctx, data).expect("trend computes");
+    ctx.settings = EnergyModule
+        .spec()
+        .resolve_settings(&serde_json::Value::Null)
+        .expect("defaults resolve");
+    ctx.earlier.insert("trend".into(), trend.clone());
+    let energy = EnergyModule.compute(&ctx, data).expect("energy computes");
+    (trend, energy)
+}
+
+fn mean(x: &[f64]) -> f64 {
+    x.iter().sum::<f64>() / x.len() as f64
+}
+
+/// Plateau band half-width as a fraction of body weight per week (the programs' default,
+/// ±0.25 %/week).
+const BAND_PER_WEEK: f64 = 0.0025;
+
+/// The true plateau onset: the first day after a loss of at least 3 % of baseline weight from
+/// which the slope of the true tissue mass (centred over 14 days) stays inside ±0.25 % of body
+/// weight per week for 28 days. `tissue` is the slow part of body weight (fat and lean tissue);
+/// `bw` the whole weight, for the band and the loss.
+pub fn true_plateau_onset(tissue: &[f64], bw: &[f64]) -> Option<usize> {
+    let n = tissue.len();
+    let shift = bw[0] - tissue[0];
+    let smooth: Vec<f64> = tissue.iter().map(|x| x + shift).collect();
+    let slope = |t: usize| -> Option<f64> {
+        (t >= 7 && t + 7 < n - 3).then(|| (smooth[t + 7] - smooth[t - 7]) / 14.0)
+    };
+    let mut run_min = f64::INFINITY;
+    for t in 0..n {
+        run_min = run_min.min(smooth[t]);
+        if smooth[0] - run_min < 0.03 * bw[0] {
+            continue;
+        }
+        let ok = (t..t + 28).all(|u| {
+            slope(u).is_some_and(|s| s.abs() <= BAND_PER_WEEK * smooth[u.min(n - 1)] / 7.0)
+        });
+        if ok {
+            return Some(t);
+        }
+    }
+    None
+}
+
+/// Everything scored for one person.
+#[derive(Debug, Clone)]
+pub struct Outcome {
+    /// The person's archetype.
+    pub archetype: Archetype,
+    /// Weighing habit.
+    pub weighing: Weighing,
+    /// Implied intake, last 28 days: (truth, estimate, lower, upper).
+    pub intake: Option<(f64, f64, f64, f64)>,
+    /// Under-reporting, %: (truth, estimate).
+    pub underreport: Option<(f64, f64)>,
+    /// Total expenditure, last 28 days: (truth, estimate).
+    pub tdee: Option<(f64, f64)>,
+    /// Trend weight at the last weigh-in: (truth, estimate).
+    pub trend_weight: Option<(f64, f64)>,
+    /// True plateau onset (observable ones only) and the estimated onset.
+    pub plateau: Option<(usize, Option<i64>)>,
+    /// No true plateau (and observed to the end): whether one was reported anyway.
+    pub false_plateau: Option<bool>,
+    /// Regain truth (true = regaining, false = clearly not) and whether it was reported.
+    pub regain: Option<(bool, bool)>,
+    /// Plateau cause: (true cause, estimated classification) for matched plateaus.
+    pub cause: Option<(&'static str, String)>,
+    /// Forecast from mid-program to the end: (truth, lower, upper).
+    pub forecast: Option<(f64, f64, f64)>,
+}
+
+fn scalar_full(o: &ModuleOutput, name: &str) -> Option<(f64, Option<f64>, Option<f64>)> {
+    let s = o.scalar_full(name)?;
+    Some((s.value?, s.lower, s.upper))
+}
+
+fn table_rows(o: &ModuleOutput, table: &str) -> Vec<BTreeMap<String, Cell>> {
+    o.table(table)
+        .map(|t| {
+            t.rows
+                .iter()
+                .map(|r| {
+                    t.columns
+                        .iter()
+                        .zip(r)
+                        .map(|(c, v)| (c.name.clone(), v.clone()))
+                        .collect()
+                })
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
+fn cell_text(r: &BTreeMap<String, Cell>, k: &str) -> Option<String> {
+    match r.get(k) {
+        Some(Cell::Text(s)) => Some(s.clone()),
+        _ => None,
+    }
+}
+
+fn cell_date(r: &BTreeMap<String, Cell>, k: &str) -> Option<i64> {
+    cell_text(r, k)
+        .and_then(|s| NaiveDate::parse_from_str(&s, "%Y-%m-%d").ok())
+        .map(day_of)
+}
+
+/// Simulates and scores person `index` of the cohort with seed `seed` over `days` days.
+pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
+    let p = truth::simulate(seed, index, days);
+    let data = participant_data(&p, &Targets::default());
+    let end = days - 1;
+    let (trend, energy) = run_modules(&data, days, end);
+    let last_obs = p.obs.iter().map(|o| o.day).max();
+    let observed_to_end = last_obs.is_some_and(|d| d + 28 > end);
+
+    let intake_truth = mean(&p.intake[end - 27..=end]);
+    let intake = scalar_full(&energy, "implied_intake_kcal_per_day")
+        .and_then(|(v, l, u)| Some((intake_truth, v, l?, u?)));
+    let logged = energy.scalar("logged_intake_kcal_per_day");
+    let underreport = energy
+        .scalar("underreporting_percent")
+        .or_else(|| {
+            let (i, l) = (intake?.1, logged?);
+            Some(100.0 * (1.0 - l / i))
+        })
+        .filter(|_| logged.is_some() && intake.is_some())
+        .map(|e| (100.0 * p.underreport, e));
+    let tdee = energy
+        .scalar("tdee_kcal_per_day")
+        .filter(|_| observed_to_end)
+        .map(|e| (mean(&p.tee[end - 27..=end]), e));
+    let trend_weight = match (trend.scalar("current_weight_kg"), last_obs) {
+        (Some(e), Some(d)) => Some((p.bw[d], e)),
+        _ => None,
+    };
+
+    // Plateaus.
+    let onset = true_plateau_onset(&p.tissue, &p.bw);
+    let periods = table_rows(&trend, "periods");
+    let est_plateau = periods
+        .iter()
+        .find(|r| cell_text(r, "kind").as_deref() == Some("plateau"));
+    let est_onset = est_plateau.and_then(|r| cell_date(r, "start"));
+    let observable = |t: usize| p.withdrew.is_none_or(|w| w >= t + 28);
+    let plateau = onset.filter(|t| observable(*t)).map(|t| (t, est_onset));
+    let false_plateau =
+        (onset.is_none() && observed_to_end && p.withdrew.is_none()).then_some(est_onset.is_some());
+
+    // Cause of a matched plateau.
+    let cause = match (plateau, est_onset) {
+        (Some((t, _)), Some(e)) if (e - t as i64).abs() <= 14 => {
+            let early = mean(&p.intake[7..35]);
+            let during = mean(&p.intake[t..(t + 28).min(days)]);
+            let rise = during - early;
+            let truth = if rise >= 150.0 {
+                Some("intake_drift")
+            } else if rise < 75.0 {
+                Some("expected_slowdown")
+            } else {
+                None
+            };
+            let est = table_rows(&energy, "plateau_assessment")
+                .into_iter()
+                .find(|r| cell_date(r, "start") == Some(e))
+                .and_then(|r| cell_text(&r, "classification"))
+                .unwrap_or_else(|| "none".into());
+            truth.map(|t| (t, est))
+        }
+        _ => None,
+    };
+
+    // Regain at the end: the true level now against its lowest point.
+    let regain = observed_to_end
+        .then(|| {
+            let n = p.tissue.len();
+            let rise_now = p.tissue[n - 1];
+            let min = p.tissue.iter().copied().fold(f64::INFINITY, f64::min);
+            let rise = rise_now - min;
+            let lost = p.tissue[0] - min >= 0.03 * p.bw[0];
+            let truth = if lost && rise >= 0.02 * p.bw[0] {
+                Some(true)
+            } else if rise < 0.005 * p.bw[0] {
+                Some(false)
+            } else {
+                None
+            };
+            let said = energy
+                .text("regain_verdict")
+                .or_else(|| trend.text("regain_verdict"))
+                .map(|v| v == "regaining")
+                .unwrap_or_else(|| trend.text("status") == Some("regaining"));
+            truth.map(|t| (t, said))
+        })
+        .flatten();
+
+    // Forecast from mid-program.
+    let mid = days / 2 - 1;
+    let (_, energy_mid) = run_modules(&data, days, mid);
+    let forecast = energy_mid.series("forecast_weight").and_then(|s| {
+        let pt = s.points.iter().find(|pt| pt.date == date(end))?;
+        Some((p.bw[end], pt.lower?, pt.upper?))
+    });
+
+    Outcome {
+        archetype: p.archetype,
+        weighing: p.weighing,
+        intake,
+        underreport,
+        tdee,
+        trend_weight,
+        plateau,
+        false_plateau,
+        regain,
+        cause,
+        forecast,
+    }
+}
+
+/// Runs a whole cohort (on up to `threads` threads; the result does not depend on them).
+pub fn run_cohort(seed: u64, participants: usize, days: usize, threads: usize) -> Vec<Outcome> {
+    assert!(days >= 120, "the harness needs at least 120 days");
+    let threads = threads.clamp(1, 64);
+    let mut out: Vec<Option<Outcome>> = vec![None; participants];
+    std::thread::scope(|s| {
+        for (k, chunk) in out
+            .chunks_mut(participants.div_ceil(threads).max(1))
+            .enumerate()
+        {
+            let base = k * participants.div_ceil(threads).max(1);
+            s.spawn(move || {
+                for (j, slot) in chunk.iter_mut().enumerate() {
+                    *slot = Some(run_person(seed, base + j, days));
+                }
+            });
+        }
+    });
+    out.into_iter()
+        .map(|o| o.expect("every person ran"))
+        .collect()
+}
+
+fn median(mut x: Vec<f64>) -> Option<f64> {
+    if x.is_empty() {
+        return None;
+    }
+    x.sort_by(|a, b| a.total_cmp(b));
+    let n = x.len();
+    Some(if n % 2 == 1 {
+        x[n / 2]
+    } else {
+        0.5 * (x[n / 2 - 1] + x[n / 2])
+    })
+}
+
+/// One scored quantity: its value and the number of people it rests on.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Figure {
+    /// Value (a proportion 0–1, or a median in the quantity's unit), `None` when no one counted.
+    pub value: Option<f64>,
+    /// People counted.
+    pub n: usize,
+}
+
+fn prop(hits: impl Iterator<Item = bool>) -> Figure {
+    let (mut k, mut n) = (0, 0);
+    for h in hits {
+        n += 1;
+        k += usize::from(h);
+    }
+    Figure {
+        value: (n > 0).then(|| k as f64 / n as f64),
+        n,
+    }
+}
+
+fn med(x: Vec<f64>) -> Figure {
+    Figure {
+        n: x.len(),
+        value: median(x),
+    }
+}
+
+/// The scored table for a set of outcomes.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Summary {
+    /// Share of implied-intake 95 % intervals (last 28 days) that contain the true mean intake.
+    pub intake_coverage: Figure,
+    /// Median error of the implied intake (estimate − truth), kcal/d.
+    pub intake_median_error: Figure,
+    /// Median half-width of the implied-intake interval, kcal/d.
+    pub intake_half_width: Figure,
+    /// Median absolute error of under-reporting, percentage points.
+    pub underreport_mae: Figure,
+    /// Median error of under-reporting (estimate − truth), points.
+    pub underreport_bias: Figure,
+    /// Share of true plateaus whose onset was found within ±14 days.
+    pub plateau_onset_14: Figure,
+    /// Median onset delay of found plateaus (estimate − truth), days.
+    pub plateau_delay: Figure,
+    /// Share of people without a true plateau who were given one.
+    pub plateau_false: Figure,
+    /// Regain sensitivity.
+    pub regain_sensitivity: Figure,
+    /// Regain specificity.
+    pub regain_specificity: Figure,
+    /// Share of matched plateaus whose cause was classified correctly.
+    pub cause_correct: Figure,
+    /// Share of matched plateaus left "undetermined".
+    pub cause_undetermined: Figure,
+    /// Share of matched plateaus given the wrong decided cause (drift for a slowdown or the
+    /// reverse; "undetermined" is not wrong).
+    pub cause_wrong: Figure,
+    /// Share of forecasts (day 90 → 180) whose band contains the true weight.
+    pub forecast_coverage: Figure,
+    /// Median absolute error of total expenditure, kcal/d.
+    pub tdee_mae: Figure,
+    /// Median absolute error of the trend weight at the last weigh-in, kg.
+    pub trend_mae: Figure,
+    /// Median error of the trend weight, kg.
+    pub trend_bias: Figure,
+}
+
+impl Summary {
+    /// Scores `outcomes`.
+    pub fn of<'a>(outcomes: impl IntoIterator<Item = &'a Outcome> + Clone) -> Self {
+        let o = || outcomes.clone().into_iter();
+        Summary {
+            intake_coverage: prop(
+                o().filter_map(|x| x.intake)
+                    .map(|(t, _, l, u)| l <= t && t <= u),
+            ),
+            intake_median_error: med(o()
+                .filter_map(|x| x.intake)
+                .map(|(t, e, _, _)| e - t)
+                .collect()),
+            intake_half_width: med(o()
+                .filter_map(|x| x.intake)
+                .map(|(_, _, l, u)| (u - l) / 2.0)
+                .collect()),
+            underreport_mae: med(o()
+                .filter_map(|x| x.underreport)
+                .map(|(t, e)| (e - t).abs())
+                .collect()),
+            underreport_bias: med(o()
+                .filter_map(|x| x.underreport)
+                .map(|(t, e)| e - t)
+                .collect()),
+            plateau_onset_14: prop(
+                o().filter_map(|x| x.plateau)
+                    .map(|(t, e)| e.is_some_and(|e| (e - t as i64).abs() <= 14)),
+            ),
+            plateau_delay: med(o()
+                .filter_map(|x| x.plateau)
+                .filter_map(|(t, e)| Some((e? - t as i64) as f64))
+                .collect()),
+            plateau_false: prop(o().filter_map(|x| x.false_plateau)),
+            regain_sensitivity: prop(o().filter_map(|x| x.regain).filter(|r| r.0).map(|r| r.1)),
+            regain_specificity: prop(o().filter_map(|x| x.regain).filter(|r| !r.0).map(|r| !r.1)),
+            cause_correct: prop(o().filter_map(|x| x.cause.clone()).map(|(t, e)| t == e)),
+            cause_undetermined: prop(
+                o().filter_map(|x| x.cause.clone())
+                    .map(|(_, e)| e == "undetermined"),
+            ),
+            cause_wrong: prop(
+                o().filter_map(|x| x.cause.clone())
+                    .map(|(t, e)| e != t && e != "undetermined"),
+            ),
+            forecast_coverage: prop(
+                o().filter_map(|x| x.forecast)
+                    .map(|(t, l, u)| l <= t && t <= u),
+            ),
+            tdee_mae: med(o()
+                .filter_map(|x| x.tdee)
+                .map(|(t, e)| (e - t).abs())
+                .collect()),
+            trend_mae: med(o()
+                .filter_map(|x| x.trend_weight)
+                .map(|(t, e)| (e - t).abs())
+                .collect()),
+            trend_bias: med(o()
+                .filter_map(|x| x.trend_weight)
+                .map(|(t, e)| e - t)
+                .collect()),
+        }
+    }
+}
+
+/// A goal of the table: (label, the figure, goal text, whether met, how to print the value).
+pub struct Row {
+    /// What is measured.
+    pub label: &'static str,
+    /// Goal, as text.
+    pub goal: &'static str,
+    /// Pick the figure from a summary.
+    pub pick: fn(&Summary) -> Figure,
+    /// Whether a value meets the goal (`None`: no goal).
+    pub met: Option<fn(f64) -> bool>,
+    /// Percent (true) or a plain number.
+    pub percent: bool,
+}
+
+/// The rows of the validation table.
+pub fn rows() -> Vec<Row> {
+    vec![
+        Row {
+            label: "implied intake (last 28 d): 95 % interval contains the truth",
+            goal: "≥ 90 %",
+            pick: |s| s.intake_coverage,
+            met: Some(|v| v >= 0.90),
+            percent: true,
+        },
+        Row {
+            label: "implied intake: median error, kcal/d",
+            goal: "—",
+            pick: |s| s.intake_median_error,
+            met: None,
+            percent: false,
+        },
+        Row {
+            label: "implied intake: median interval half-width, kcal/d",
+            goal: "—",
+            pick: |s| s.intake_half_width,
+            met: None,
+            percent: false,
+        },
+        Row {
+            label: "under-reporting %: median absolute error, points",
+            goal: "≤ 5",
+            pick: |s| s.underreport_mae,
+            met: Some(|v| v <= 5.0),
+            percent: false,
+        },
+        Row {
+            label: "under-reporting %: median error, points",
+            goal: "—",
+            pick: |s| s.underreport_bias,
+            met: None,
+            percent: false,
+        },
+        Row {
+            label: "plateau onset within ±14 d of the true onset",
+            goal: "≥ 80 %",
+            pick: |s| s.plateau_onset_14,
+            met: Some(|v| v >= 0.80),
+            percent: true,
+        },
+        Row {
+            label: "plateau onset: median delay of found plateaus, d",
+            goal: "—",
+            pick: |s| s.plateau_delay,
+            met: None,
+            percent: false,
+        },
+        Row {
+            label: "plateau reported without a true plateau",
+            goal: "—",
+            pick: |s| s.plateau_false,
+            met: None,
+            percent: true,
+        },
+        Row {
+            label: "regain: sensitivity",
+            goal: "≥ 80 %",
+            pick: |s| s.regain_sensitivity,
+            met: Some(|v| v >= 0.80),
+            percent: true,
+        },
+        Row {
+            label: "regain: specificity",
+            goal: "≥ 95 %",
+            pick: |s| s.regain_specificity,
+            met: Some(|v| v >= 0.95),
+            percent: true,
+        },
+        Row {
+            label: "plateau cause correct (matched plateaus)",
+            goal: "≥ 80 %",
+            pick: |s| s.cause_correct,
+            met: Some(|v| v >= 0.80),
+            percent: true,
+        },
+        Row {
+            label: "plateau cause left undetermined",
+            goal: "—",
+            pick: |s| s.cause_undetermined,
+            met: None,
+            percent: true,
+        },
+        Row {
+            label: "plateau cause decided wrongly",
+            goal: "—",
+            pick: |s| s.cause_wrong,
+            met: None,
+            percent: true,
+        },
+        Row {
+            label: "forecast day 90 → 180: band contains the true weight",
+            goal: "≥ 90 %",
+            pick: |s| s.forecast_coverage,
+            met: Some(|v| v >= 0.90),
+            percent: true,
+        },
+        Row {
+            label: "total expenditure (last 28 d): median absolute error, kcal/d",
+            goal: "≤ 150",
+            pick: |s| s.tdee_mae,
+            met: Some(|v| v <= 150.0),
+            percent: false,
+        },
+        Row {
+            label: "trend weight at the last weigh-in: median absolute error, kg",
+            goal: "—",
+            pick: |s| s.trend_mae,
+            met: None,
+            percent: false,
+        },
+        Row {
+            label: "trend weight: median error, kg",
+            goal: "—",
+            pick: |s| s.trend_bias,
+            met: None,
+            percent: false,
+        },
+    ]
+}
+
+/// Formats a figure.
+pub fn fmt_figure(f: Figure, percent: bool) -> String {
+    match f.value {
+        None => format!("– (n={})", f.n),
+        Some(v) if percent => format!("{:.1} % (n={})", 100.0 * v, f.n),
+        Some(v) => format!("{v:.1} (n={})", f.n),
+    }
+}

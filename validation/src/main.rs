@@ -1,0 +1,162 @@
+//! `cohortpress-validate`: simulates a cohort with known truth, runs the `trend` and `energy`
+//! modules on what the simulated people recorded, and prints (and optionally writes) the
+//! validation table.
+//!
+//! ```sh
+//! cargo run --release -p cohortpress-validation -- --write VALIDATION.md
+//! ```
+
+use cohortpress_validation::truth::{Archetype, Weighing};
+use cohortpress_validation::{Outcome, Summary, fmt_figure, rows, run_cohort};
+use std::fmt::Write as _;
+use std::process::ExitCode;
+use std::time::Instant;
+
+/// Default seed of the published table.
+const DEFAULT_SEED: u64 = 20_261_202;
+
+struct Args {
+    participants: usize,
+    days: usize,
+    seed: u64,
+    threads: usize,
+    write: Option<String>,
+}
+
+fn parse() -> Result<Args, String> {
+    let mut a = Args {
+        participants: 300,
+        days: 180,
+        seed: DEFAULT_SEED,
+        threads: 2,
+        write: None,
+    };
+    let mut it = std::env::args().skip(1);
+    while let Some(k) = it.next() {
+        let mut val = || it.next().ok_or_else(|| format!("{k} needs a value"));
+        match k.as_str() {
+            "--participants" => {
+                a.participants = val()?.parse().map_err(|e| format!("--participants: {e}"))?
+            }
+            "--days" => a.days = val()?.parse().map_err(|e| format!("--days: {e}"))?,
+            "--seed" => a.seed = val()?.parse().map_err(|e| format!("--seed: {e}"))?,
+            "--threads" => a.threads = val()?.parse().map_err(|e| format!("--threads: {e}"))?,
+            "--write" => a.write = Some(val()?),
+            "-h" | "--help" => {
+                return Err(
+                    "usage: cohortpress-validate [--participants N (300)] [--days D (180)] \
+                            [--seed S (20261202)] [--threads T (2)] [--write VALIDATION.md]"
+                        .into(),
+                );
+            }
+            other => return Err(format!("unknown argument `{other}` (try --help)")),
+        }
+    }
+    if a.days < 120 || a.participants == 0 {
+        return Err("--days must be at least 120 and --participants at least 1".into());
+    }
+    Ok(a)
+}
+
+fn table(outcomes: &[Outcome]) -> String {
+    let all = Summary::of(outcomes);
+    let per: Vec<(Archetype, Summary)> = Archetype::ALL
+        .iter()
+        .map(|a| {
+            (
+                *a,
+                Summary::of(outcomes.iter().filter(|o| o.archetype == *a)),
+            )
+        })
+        .collect();
+    let mut s = String::new();
+    let _ = writeln!(s, "| estimate | goal | all | met? |");
+    let _ = writeln!(s, "|---|---|---|---|");
+    for r in rows() {
+        let f = (r.pick)(&all);
+        let met = match (r.met, f.value) {
+            (Some(m), Some(v)) => {
+                if m(v) {
+                    "yes"
+                } else {
+                    "**no**"
+                }
+            }
+            (Some(_), None) => "n/a",
+            (None, _) => "",
+        };
+        let _ = writeln!(
+            s,
+            "| {} | {} | {} | {met} |",
+            r.label,
+            r.goal,
+            fmt_figure(f, r.percent)
+        );
+    }
+    let _ = writeln!(s, "\nBy archetype:\n");
+    let _ = write!(s, "| estimate |");
+    for (a, _) in &per {
+        let n = outcomes.iter().filter(|o| o.archetype == *a).count();
+        let _ = write!(s, " {} ({n}) |", a.name());
+    }
+    let _ = writeln!(s);
+    let _ = writeln!(s, "|---|{}", "---|".repeat(per.len()));
+    for r in rows() {
+        let _ = write!(s, "| {} |", r.label);
+        for (_, sm) in &per {
+            let _ = write!(s, " {} |", fmt_figure((r.pick)(sm), r.percent));
+        }
+        let _ = writeln!(s);
+    }
+    let _ = writeln!(s, "\nBy weighing habit:\n");
+    let _ = write!(s, "| estimate |");
+    for w in Weighing::ALL {
+        let n = outcomes.iter().filter(|o| o.weighing == w).count();
+        let _ = write!(s, " {} ({n}) |", w.name());
+    }
+    let _ = writeln!(s);
+    let _ = writeln!(s, "|---|{}", "---|".repeat(Weighing::ALL.len()));
+    for r in rows() {
+        let _ = write!(s, "| {} |", r.label);
+        for w in Weighing::ALL {
+            let sm = Summary::of(outcomes.iter().filter(|o| o.weighing == w));
+            let _ = write!(s, " {} |", fmt_figure((r.pick)(&sm), r.percent));
+        }
+        let _ = writeln!(s);
+    }
+    s
+}
+
+fn main() -> ExitCode {
+    let args = match parse() {
+        Ok(a) => a,
+        Err(e) => {
+            eprintln!("{e}");
+            return ExitCode::from(2);
+        }
+    };
+    let t0 = Instant::now();
+    let outcomes = run_cohort(args.seed, args.participants, args.days, args.threads);
+    let secs = t0.elapsed().as_secs_f64();
+    let body = table(&outcomes);
+    println!(
+        "{} simulated participants × {} days, seed {} ({secs:.1} s)\n\n{body}",
+        args.participants, args.days, args.seed
+    );
+    if let Some(path) = args.write {
+        let doc = format!(
+            "{}\n## Results\n\n{} simulated participants × {} days, seed {}.\n\n{body}",
+            include_str!("validation_header.md"),
+            args.participants,
+            args.days,
+            args.seed
+        );
+        let tmp = format!("{path}.tmp");
+        if let Err(e) = std::fs::write(&tmp, doc).and_then(|_| std::fs::rename(&tmp, &path)) {
+            eprintln!("writing {path}: {e}");
+            return ExitCode::from(6);
+        }
+        eprintln!("wrote {path}");
+    }
+    ExitCode::SUCCESS
+}

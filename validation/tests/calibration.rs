@@ -1,0 +1,72 @@
+//! Calibration guard: fixed-seed simulated cohorts (the published one and a second seed) are
+//! run through the real `trend` and `energy` modules and scored against their known truth. A
+//! change that breaks the calibration of the intervals or the detection of plateaus, regain
+//! and their causes fails here.
+//!
+//! The floors sit a little below what these seeds measure (VALIDATION.md has the full table),
+//! so ordinary refactoring passes and a real regression does not. Goals not yet met (plateau
+//! onset, under-reporting, expenditure, plateau cause) are guarded at their current level.
+
+use cohortpress_validation::{Figure, Summary, run_cohort};
+
+fn check(seed: u64) {
+    let outcomes = run_cohort(seed, 300, 180, 2);
+    let s = Summary::of(&outcomes);
+    let v = |f: Figure, what: &str| {
+        f.value
+            .unwrap_or_else(|| panic!("seed {seed}, {what}: nobody was scored (n = {})", f.n))
+    };
+    let report = format!("seed {seed}\n{s:#?}");
+    let floors: [(&str, f64, bool, Figure); 12] = [
+        (
+            "implied-intake interval coverage",
+            0.90,
+            true,
+            s.intake_coverage,
+        ),
+        ("forecast band coverage", 0.90, true, s.forecast_coverage),
+        ("regain sensitivity", 0.80, true, s.regain_sensitivity),
+        ("regain specificity", 0.95, true, s.regain_specificity),
+        ("plateau onset within ±14 d", 0.40, true, s.plateau_onset_14),
+        ("plateau cause correct", 0.72, true, s.cause_correct),
+        (
+            "plateaus reported without one",
+            0.20,
+            false,
+            s.plateau_false,
+        ),
+        ("plateau cause decided wrongly", 0.10, false, s.cause_wrong),
+        (
+            "under-reporting MAE, points",
+            10.0,
+            false,
+            s.underreport_mae,
+        ),
+        ("expenditure MAE, kcal/d", 220.0, false, s.tdee_mae),
+        ("trend weight MAE, kg", 0.4, false, s.trend_mae),
+        ("trend weight bias, kg", 0.3, false, s.trend_bias),
+    ];
+    for (what, floor, at_least, f) in floors {
+        let x = v(f, what);
+        let ok = if at_least {
+            x >= floor
+        } else {
+            x.abs() <= floor
+        };
+        assert!(
+            ok,
+            "{what}: {x:.3} is {} {floor}\n{report}",
+            if at_least { "below" } else { "above" }
+        );
+    }
+}
+
+#[test]
+fn the_published_cohort_keeps_its_calibration() {
+    check(20_261_202);
+}
+
+#[test]
+fn a_second_cohort_keeps_its_calibration() {
+    check(7);
+}
