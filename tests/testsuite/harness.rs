@@ -87,13 +87,14 @@ impl ProgramTest {
 
 /// Copies a folder tree (files and folders only).
 ///
-/// A program's own output (the default `reports/` folder and its hidden staging and lock
-/// files) is left out: after the README's first command the sample program holds its reports,
+/// A program's own output (the default `reports/` folder, its ledger and its hidden staging
+/// and lock files) is left out: after the README's first command the sample program holds its reports,
 /// and a test must start from the inputs alone.
 pub fn copy_tree(src: &Path, dst: &Path) {
     let is_output = |e: &walkdir::DirEntry| {
         let name = e.file_name().to_string_lossy();
-        e.depth() == 1 && (name == "reports" || name.starts_with(".reports"))
+        e.depth() == 1
+            && (name == "reports" || name == "reports.ledger" || name.starts_with(".reports"))
     };
     for entry in walkdir::WalkDir::new(src)
         .sort_by_file_name()

@@ -126,7 +126,8 @@ fn names_cannot_inject_html_and_ids_cannot_escape_the_output_folder() {
         .collect();
     let mut parent = parent;
     parent.sort();
-    assert_eq!(parent, [".out.lock", "out", "program"]);
+    // Beside the program: the output, its lock and the group report's publication ledger.
+    assert_eq!(parent, [".out.lock", "out", "out.ledger", "program"]);
     assert_eq!(
         tree_hashes(&t.dir),
         inputs_before,

@@ -31,11 +31,15 @@ fn sample_program_runs_end_to_end() {
     assert!(out.stderr.contains("SG-049"), "{}", out.stderr);
     let reports = t.dir.join("reports");
 
-    // Inputs untouched: every file that was there is byte-identical (only reports/ and the
-    // lock file were added, beside the inputs).
+    // Inputs untouched: every file that was there is byte-identical (only reports/, the
+    // publication ledger reports.ledger/ and the lock file were added, beside the inputs).
     let after: Vec<_> = tree_hashes(&t.dir)
         .into_iter()
-        .filter(|(p, _)| !p.starts_with("reports/") && !p.starts_with(".reports"))
+        .filter(|(p, _)| {
+            !p.starts_with("reports/")
+                && !p.starts_with(".reports")
+                && !p.starts_with("reports.ledger/")
+        })
         .collect();
     assert_eq!(after, inputs_before);
 
