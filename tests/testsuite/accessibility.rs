@@ -291,25 +291,18 @@ fn participant_reports_have_no_axe_violations() {
     }
 }
 
-/// The group page, except that `<figure role="img">` (axe: aria-allowed-role) is still in the
-/// group template, which is being reworked separately; every other rule must pass, and the
-/// figures must stop being flagged once the template uses plain `<figure>`.
+/// The group page: every rule passes at both widths.
 #[test]
 fn group_report_has_no_axe_violations() {
     let Some(tools) = tools() else { return };
     let html = sample_run().read("group/program.html");
+    assert!(
+        !html.contains("<figure role=\"img\""),
+        "figures keep their captions"
+    );
     for width in WIDTHS {
         let check = axe_check(&tools, &html, width);
-        let mut found = check.violations;
-        if html.contains("<figure role=\"img\"") {
-            for v in &mut found {
-                if v.id == "aria-allowed-role" {
-                    v.nodes
-                        .retain(|n| !n.html.starts_with("<figure role=\"img\""));
-                }
-            }
-            found.retain(|v| !v.nodes.is_empty());
-        }
+        let found = check.violations;
         assert!(
             found.is_empty(),
             "group/program.html at {width} px:\n{}",
