@@ -545,6 +545,29 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
 
 /// Minutes of walking that stand in for `kcal` a day less intake (the two option rows of the
 /// energy module give the ratio for this person).
+/// The "walk more" option that covers `kcal` a day, rounded up to the minute step, when it
+/// lies within the program's sizes; `lower` and `rate` are the checks it was made under.
+fn walk_option(
+    kcal: f64,
+    t: &Thresholds,
+    f: &Facts,
+    lower: Option<f64>,
+    rate: Option<f64>,
+) -> Option<OptionView> {
+    let m = fmt::ceil_to(walk_for(kcal, f)?, MIN_STEP);
+    (m >= t.min_walk_minutes && m <= t.max_walk_minutes).then(|| OptionView {
+        text: format!(
+            "Walk about {} minutes more a day at an easy pace ({}).",
+            fmt::fixed(m, 0),
+            pace(f.units)
+        ),
+        intake_cut_kcal: 0.0,
+        walk_minutes: m,
+        intake_at_lower_bound: lower,
+        rate_at_fast_bound: rate,
+    })
+}
+
 fn walk_for(kcal: f64, f: &Facts) -> Option<f64> {
     match (f.intake_need, f.walk_need) {
         (Some(need), Some(walk)) if need > 0.0 && walk > 0.0 => Some(walk * kcal / need),
@@ -578,21 +601,8 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             intake_at_lower_bound: lower_intake.map(|l| l - cut),
             rate_at_fast_bound: None,
         });
-        if let Some(m) = walk_for(cut, f).map(|m| fmt::ceil_to(m, MIN_STEP))
-            && m >= t.min_walk_minutes
-            && m <= t.max_walk_minutes
-        {
-            g.options.push(OptionView {
-                text: format!(
-                    "Walk about {} minutes more a day at an easy pace ({}).",
-                    fmt::fixed(m, 0),
-                    pace(f.units)
-                ),
-                intake_cut_kcal: 0.0,
-                walk_minutes: m,
-                intake_at_lower_bound: lower_intake,
-                rate_at_fast_bound: None,
-            });
+        if let Some(o) = walk_option(cut, t, f, lower_intake, None) {
+            g.options.push(o);
         }
         if g.options.len() == 1 {
             g.options_intro = "By the energy-balance model, this would about stop the rise:".into();
@@ -782,22 +792,8 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         dropped_intake = true;
     }
     // Walk more only.
-    let walk_all = walk_for(need, f).map(|m| fmt::ceil_to(m, MIN_STEP));
-    if let Some(m) = walk_all
-        && m >= t.min_walk_minutes
-        && m <= t.max_walk_minutes
-    {
-        g.options.push(OptionView {
-            text: format!(
-                "Walk about {} minutes more a day at an easy pace ({}).",
-                fmt::fixed(m, 0),
-                pace(f.units)
-            ),
-            intake_cut_kcal: 0.0,
-            walk_minutes: m,
-            intake_at_lower_bound: Some(lower),
-            rate_at_fast_bound: Some(rate_fast),
-        });
+    if let Some(o) = walk_option(need, t, f, Some(lower), Some(rate_fast)) {
+        g.options.push(o);
     }
     // Some of each: half the change from intake (never past the floor at the lower bound),
     // the rest from walking.
