@@ -201,12 +201,22 @@ impl ModuleOutput {
         unit: &str,
         label: &str,
     ) {
+        let (lower, upper) = (
+            lower.filter(|v| v.is_finite()),
+            upper.filter(|v| v.is_finite()),
+        );
+        // A module that passes its bounds the wrong way round is a bug; tests (debug builds)
+        // catch it here for every interval of every module.
+        debug_assert!(
+            !matches!((lower, upper), (Some(l), Some(u)) if l > u + 1e-9),
+            "{name}: lower bound {lower:?} above upper bound {upper:?}"
+        );
         self.scalars.push(Scalar {
             name: name.into(),
             value: value.filter(|v| v.is_finite()),
             unit: unit.into(),
-            lower: lower.filter(|v| v.is_finite()),
-            upper: upper.filter(|v| v.is_finite()),
+            lower,
+            upper,
             label: label.into(),
         });
     }

@@ -610,7 +610,7 @@ pub(crate) fn run(
         Band {
             value: v,
             lower: Some((v - h).max(0.0)),
-            upper: Some(v + h),
+            upper: Some((v + h).max(0.0)),
         }
     });
     // Expenditure: by energy balance when the intake is implied (intake minus the energy
@@ -704,8 +704,8 @@ pub(crate) fn run(
     out.push_interval(
         "underreporting_percent",
         underreport.map(|b| b.value),
-        underreport.and_then(|b| b.upper),
         underreport.and_then(|b| b.lower),
+        underreport.and_then(|b| b.upper),
         "%",
         "Share of the implied intake missing from the food log over the window, 95 % interval",
     );
