@@ -446,7 +446,7 @@ fn fill(
             suppressed: !matches!(b.count, Shown::Value(_)),
         })
         .collect();
-    let hist_alt = "Number of participants by percent weight change from baseline (intention-to-treat, baseline carried forward). Suppressed bars are drawn empty.".to_string();
+    let hist_alt = "Number of participants by percent weight change from baseline (intention-to-treat, baseline carried forward).".to_string();
     let hist_table = TableView {
         header: vec!["Change".into(), "Participants".into()],
         rows: st
