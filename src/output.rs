@@ -1,4 +1,6 @@
-//! Atomic output: a staging folder beside the output folder, a run lock, and the manifest.
+//! Atomic output: a staging folder beside the output folder and a run lock. This module and
+//! [`crate::run`] (through it) are the only code that writes output files; what goes into them
+//! is made elsewhere, as bytes.
 //!
 //! A run writes everything into `.NAME.staging/` next to the output folder `NAME/`, then swaps
 //! it into place with two renames (`NAME` → `.NAME.previous`, staging → `NAME`) and removes the
@@ -15,8 +17,6 @@
 //! complete output. Every file and folder is fsync'd before the swap, and a staging folder left
 //! by a failed run is removed when the [`Staging`] value is dropped.
 
-use crate::participant::InputFile;
-use crate::run::execute::{RunPlan, RunSummary};
 use serde::Serialize;
 use std::fs::{self, File};
 use std::io::Write;
@@ -118,27 +118,6 @@ pub struct OutputTarget {
 }
 
 impl OutputTarget {
-    /// The target for `program` writing into `dir` (named by `named_by`).
-    pub fn for_program(
-        program: &crate::program::Program,
-        dir: PathBuf,
-        scope: OutputScope,
-        named_by: &'static str,
-    ) -> Self {
-        OutputTarget {
-            dir,
-            program_root: program.root.clone(),
-            templates: program
-                .def
-                .report
-                .templates
-                .as_ref()
-                .map(|t| program.root.join(t)),
-            scope,
-            named_by,
-        }
-    }
-
     /// Whether a run could write this folder (links resolved, nothing created or locked):
     /// what `check` says about `report.out`, so that `check` and `run` agree.
     pub fn check(&self) -> Result<(), StagingError> {
@@ -765,52 +744,16 @@ fn new_file(p: &Path, _access: Access) -> Result<File, StagingError> {
         .map_err(io(p))
 }
 
-#[derive(Serialize)]
-struct Manifest<'a> {
-    tool: String,
-    program_id: &'a str,
-    period_from: String,
-    period_to: String,
-    as_of: String,
-    scope: OutputScope,
-    formats: Vec<String>,
-    modules: Vec<String>,
-    counts: &'a RunSummary,
-    inputs: &'a [InputFile],
-    outputs: Vec<OutputFile>,
-}
-
-/// The run manifest (JSON): tool version, settings, input hashes, every output with its
-/// checksum, counts. It holds no clock time, so an unchanged re-run gives identical bytes.
-pub fn manifest(
-    plan: &RunPlan,
-    inputs: &[InputFile],
-    staging: &Staging,
-    summary: &RunSummary,
-) -> Result<Vec<u8>, serde_json::Error> {
-    let m = Manifest {
-        tool: format!("cohortpress {}", env!("CARGO_PKG_VERSION")),
-        program_id: &plan.program.info.id,
-        period_from: plan.period.from.to_string(),
-        period_to: plan.period.to.to_string(),
-        as_of: plan.as_of.to_string(),
-        scope: plan.scope(),
-        formats: plan
-            .formats
-            .iter()
-            .map(|f| format!("{f:?}").to_lowercase())
-            .collect(),
-        modules: plan
-            .modules
-            .settings_fingerprint()
-            .lines()
-            .map(str::to_string)
-            .collect(),
-        counts: summary,
-        inputs,
-        outputs: staging.files(),
-    };
-    let mut v = serde_json::to_vec_pretty(&m)?;
-    v.push(b'\n');
-    Ok(v)
+/// Writes `bytes` to a new file at `path`, creating its folders; an existing file is left as it
+/// is (`Ok(false)`). For `templates dump`, which writes into a folder the user names rather than
+/// an output folder. An error names the path that failed.
+pub fn write_new_file(path: &Path, bytes: &[u8]) -> Result<bool, (PathBuf, std::io::Error)> {
+    if path.exists() {
+        return Ok(false);
+    }
+    if let Some(p) = path.parent() {
+        fs::create_dir_all(p).map_err(|e| (p.to_path_buf(), e))?;
+    }
+    fs::write(path, bytes).map_err(|e| (path.to_path_buf(), e))?;
+    Ok(true)
 }

@@ -4,10 +4,7 @@
 use crate::diag::Diagnostic;
 use crate::group::GroupReport;
 use crate::modules::ModuleResults;
-use crate::output::Staging;
-use crate::run::partial::TidyRecord;
-use crate::run::execute::RunPlan;
-use cohortpress_metric_api::{Flag, ParticipantData, Scalar, TextValue};
+use cohortpress_metric_api::{Flag, ParticipantData, Period, Scalar, TextValue};
 use rayon::prelude::*;
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
@@ -39,11 +36,7 @@ pub struct TidyParticipant {
 }
 
 /// Collects a participant's tidy metrics from the module results.
-pub fn participant(
-    _plan: &RunPlan,
-    data: &ParticipantData,
-    results: &ModuleResults,
-) -> TidyParticipant {
+pub fn participant(data: &ParticipantData, results: &ModuleResults) -> TidyParticipant {
     let mut t = TidyParticipant {
         participant_id: data.profile.id.clone(),
         groups: data.profile.groups.clone(),
@@ -157,26 +150,47 @@ impl Columns {
     }
 }
 
-/// Writes `metrics/participants.csv`, `metrics/participants.json`, `metrics/weekly.csv`,
-/// `metrics/tables.csv`, `metrics/data-quality.csv` and `metrics/group.json` into staging.
+/// Where the streamed tidy files go: `metrics/participants.csv`, `metrics/participants.json`,
+/// `metrics/weekly.csv` and `metrics/tables.csv` (the caller opens and closes them).
+pub struct TidySinks<'a> {
+    /// `metrics/participants.csv`.
+    pub participants: &'a mut dyn Write,
+    /// `metrics/participants.json`.
+    pub json: &'a mut dyn Write,
+    /// `metrics/weekly.csv`.
+    pub weekly: &'a mut dyn Write,
+    /// `metrics/tables.csv`.
+    pub tables: &'a mut dyn Write,
+}
+
+/// Reads one participant's tidy metrics by id: `Ok(None)` for a participant without any.
+pub type LoadTidy<'a> = dyn Fn(&str) -> Result<Option<TidyParticipant>, String> + Sync + 'a;
+
+/// An error while rendering the tidy files.
+pub type TidyError = Box<dyn std::error::Error + Send + Sync>;
+
+/// Streams the participants' tidy metrics into `sinks`, in the order of `ids`.
 ///
-/// Participants' metrics are not held in memory: they are read back, in id order, from the
-/// partial results (`cache/ID.json`) already in staging and streamed into the files, so memory
-/// does not grow with the number of participants.
+/// Participants' metrics are not held in memory: `load` reads each back (the run reads the
+/// partial results it has already written) a chunk at a time, so memory does not grow with the
+/// number of participants.
 pub fn render(
-    plan: &RunPlan,
+    period: Period,
     columns: &Columns,
     ids: &[String],
-    staging: &Staging,
-    diags: &[Diagnostic],
-    group: &GroupReport,
-) -> Result<(), Box<dyn std::error::Error + Send + Sync>> {
-    let (from, to) = (plan.period.from.to_string(), plan.period.to.to_string());
-    let mut participants =
-        crate::csv_out::Writer::from_writer(staging.create("metrics/participants.csv")?);
-    let mut json = staging.create("metrics/participants.json")?;
-    let mut weekly = crate::csv_out::Writer::from_writer(staging.create("metrics/weekly.csv")?);
-    let mut tables = crate::csv_out::Writer::from_writer(staging.create("metrics/tables.csv")?);
+    load: &LoadTidy<'_>,
+    sinks: TidySinks<'_>,
+) -> Result<(), TidyError> {
+    let TidySinks {
+        participants,
+        json,
+        weekly,
+        tables,
+    } = sinks;
+    let mut participants = crate::csv_out::Writer::from_writer(participants);
+    let mut weekly = crate::csv_out::Writer::from_writer(weekly);
+    let mut tables = crate::csv_out::Writer::from_writer(tables);
+    let (from, to) = (period.from.to_string(), period.to.to_string());
 
     let mut header = vec![
         "participant_id".to_string(),
@@ -228,14 +242,7 @@ pub fn render(
     for chunk in ids.chunks(256) {
         let parsed: Vec<Result<Option<TidyParticipant>, String>> = chunk
             .par_iter()
-            .map(|id| {
-                let bytes = staging
-                    .read(&crate::run::partial::cache_path(id))
-                    .map_err(|e| e.to_string())?;
-                let rec = crate::run::partial::ParticipantRecord::from_bytes(&bytes)
-                    .ok_or_else(|| format!("cache/{id}.json: unreadable partial result"))?;
-                Ok(rec.tidy.map(TidyRecord::into_tidy))
-            })
+            .map(|id| load(id))
             .collect();
         for r in parsed {
             let Some(r) = r? else { continue };
@@ -287,7 +294,7 @@ pub fn render(
             json.write_all(if first { b"\n" } else { b",\n" })?;
             first = false;
             serde_json::to_writer(
-                &mut json,
+                &mut *json,
                 &JsonRow {
                     period_from: &from,
                     period_to: &to,
@@ -303,14 +310,15 @@ pub fn render(
         }
     }
     json.write_all(b"\n]\n")?;
-    json.finish()?;
-    participants
-        .into_inner()
-        .map_err(|e| e.to_string())?
-        .finish()?;
-    weekly.into_inner().map_err(|e| e.to_string())?.finish()?;
-    tables.into_inner().map_err(|e| e.to_string())?.finish()?;
+    json.flush()?;
+    participants.into_inner()?.flush()?;
+    weekly.into_inner()?.flush()?;
+    tables.into_inner()?.flush()?;
+    Ok(())
+}
 
+/// `metrics/data-quality.csv`: every diagnostic, by participant, file and line.
+pub fn data_quality(diags: &[Diagnostic]) -> Result<Vec<u8>, TidyError> {
     let mut w = crate::csv_out::Writer::from_writer(Vec::new());
     w.write_record([
         "severity",
@@ -340,10 +348,12 @@ pub fn render(
             d.hint.clone().unwrap_or_default(),
         ])?;
     }
-    staging.write("metrics/data-quality.csv", &w.into_inner()?)?;
+    Ok(w.into_inner()?)
+}
 
+/// `metrics/group.json`: the group statistics.
+pub fn group_json(group: &GroupReport) -> Result<Vec<u8>, TidyError> {
     let mut g = serde_json::to_vec_pretty(group)?;
     g.push(b'\n');
-    staging.write("metrics/group.json", &g)?;
-    Ok(())
+    Ok(g)
 }

@@ -38,7 +38,7 @@ use cohortpress::group::{self, GroupOptions};
 use cohortpress::modules;
 use cohortpress::program::Format;
 use cohortpress::report;
-use cohortpress::run::execute::{self, RunPlan, RunSummary};
+use cohortpress::run::{RunPlan, execute};
 use cohortpress_metric_api::ParticipantData;
 
 /// Measure cohortpress: loading, metric modules, rendering and the end-to-end run.
@@ -370,7 +370,7 @@ fn bench_size(
             .run(&plan.program.info, plan.period, plan.as_of, d);
         let diags = Vec::new();
         let t = Instant::now();
-        let ctx = report::participant_context(&plan, d, &results, &diags);
+        let ctx = report::participant_context(&plan.report_scope(), d, &results, &diags);
         model_t.push(t.elapsed().as_secs_f64());
         charts
             .push(1 + ctx.energy_chart.is_some() as usize + ctx.activity_chart.is_some() as usize);
@@ -445,7 +445,7 @@ fn bench_size(
         let results = plan
             .modules
             .run(&plan.program.info, plan.period, plan.as_of, d);
-        let ctx = report::participant_context(&plan, d, &results, &[]);
+        let ctx = report::participant_context(&plan.report_scope(), d, &results, &[]);
         let pdf = report::render_participant(&templates, &ctx, &[Format::Pdf])
             .unwrap_or_else(|e| die(&format!("render: {e}")));
         let _ = writeln!(md, "{}", zlib_levels(&pdf[0].1));
@@ -467,11 +467,6 @@ fn bench_size(
         group_by: plan.program.def.report.group_by.clone(),
         confidence: 0.95,
     };
-    let run_summary = RunSummary {
-        participants: n,
-        reported: rows.len(),
-        ..Default::default()
-    };
     let mut stats_t = Vec::new();
     let mut group_render_t = Vec::new();
     for _ in 0..reps.group {
@@ -479,7 +474,7 @@ fn bench_size(
         let g = group::summarize(&rows, &opts);
         stats_t.push(t.elapsed().as_secs_f64());
         let t = Instant::now();
-        let ctx = report::group_context(&plan, &g, &run_summary);
+        let ctx = report::group_context(&plan.report_scope(), &g, 0);
         let files = report::render_group(&templates, &ctx, &[Format::Html, Format::Pdf])
             .unwrap_or_else(|e| die(&format!("group render: {e}")));
         group_render_t.push(t.elapsed().as_secs_f64());
@@ -585,7 +580,8 @@ fn plan_for(program: &Path, out: &Path) -> RunPlan {
         die("expected the run command")
     };
     let today: NaiveDate = AS_OF.parse().expect("valid date");
-    execute::plan_from_args(&run_args, today).unwrap_or_else(|(_, d)| die(&format!("plan: {d:?}")))
+    cohortpress::run::plan::plan(&cohortpress::cmd::run::run_options(&run_args), today)
+        .unwrap_or_else(|e| die(&format!("plan: {e}")))
 }
 
 struct EndToEnd {

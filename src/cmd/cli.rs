@@ -1,5 +1,5 @@
-//! The command line (clap). Clap types stay in this module; [`crate::run::execute::RunPlan`] is what
-//! the rest of the program sees.
+//! The command line (clap). Clap types stay in [`crate::cmd`]; the rest of the program sees
+//! plain options ([`crate::run::RunOptions`], [`crate::run::MergeOptions`]).
 
 use chrono::NaiveDate;
 use clap::{Args, Parser, Subcommand, ValueEnum};

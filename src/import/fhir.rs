@@ -26,7 +26,6 @@
 //! already a plain id (letters, digits, `-`, `_`) is used as it is. Names are never copied.
 //! Existing participant folders are never changed: the import refuses them.
 
-use crate::exit_code;
 use crate::program::load::is_plain_id;
 use chrono::NaiveDate;
 use serde_json::Value;
@@ -443,24 +442,20 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
     files
 }
 
-/// `cohortpress import fhir FILE… --out PROGRAM [--ids MAP.csv]`: writes one participant
-/// folder per patient under `PROGRAM/participants/`. Returns the exit code.
-pub fn import_command(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> i32 {
-    match import(files, out, ids) {
-        Ok(summary) => {
-            println!("{summary}");
-            exit_code::SUCCESS
-        }
-        Err((code, msg)) => {
-            eprintln!("error: {msg}");
-            code
-        }
-    }
+/// Why an import wrote nothing.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ImportFailure {
+    /// A wrong command line: an unreadable or unusable file, map or patient id.
+    Usage,
+    /// The participant folders cannot be written (or one exists already).
+    Write,
 }
 
-/// The import; `Err((exit code, message))` when nothing was written.
-pub fn import(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> Result<String, (i32, String)> {
-    let usage = |m: String| (exit_code::USAGE, m);
+/// `cohortpress import fhir FILE… --out PROGRAM [--ids MAP.csv]`: writes one participant
+/// folder per patient under `PROGRAM/participants/` and returns a summary; `Err((why, message))`
+/// when nothing was written.
+pub fn import(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> Result<String, (ImportFailure, String)> {
+    let usage = |m: String| (ImportFailure::Usage, m);
     let map = ids.map(read_id_map).transpose().map_err(usage)?;
     let mut imp = Imported::default();
     for f in files {
@@ -489,7 +484,7 @@ pub fn import(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> Result<Strin
         let dir = base.join(&pid);
         if dir.exists() {
             return Err((
-                exit_code::OUTPUT_FAILED,
+                ImportFailure::Write,
                 format!(
                     "{} already exists; the import never changes existing participant folders (import into a new program folder, or move it away)",
                     dir.display()
@@ -503,7 +498,7 @@ pub fn import(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> Result<Strin
     let staging = out.join(".cohortpress-import.staging");
     let io = |e: std::io::Error| {
         (
-            exit_code::OUTPUT_FAILED,
+            ImportFailure::Write,
             format!("cannot write the import ({e})"),
         )
     };
@@ -667,7 +662,7 @@ mod tests {
         // A second import never touches the existing folder.
         let before = std::fs::read_to_string(dir.join("weights.csv")).unwrap();
         let e = import(std::slice::from_ref(&nd), &out, Some(&map)).unwrap_err();
-        assert_eq!(e.0, exit_code::OUTPUT_FAILED);
+        assert_eq!(e.0, ImportFailure::Write);
         assert_eq!(
             std::fs::read_to_string(dir.join("weights.csv")).unwrap(),
             before

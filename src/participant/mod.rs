@@ -291,10 +291,53 @@ const KNOWN_FILES: [&str; 6] = [
     "labs.csv",
 ];
 
+/// A participant folder opened once, without following a link, and listed once through that
+/// handle; its files are then read relative to the handle, so a folder replaced by a link since
+/// it was listed is not followed either.
+#[derive(Debug)]
+pub struct OpenedDir {
+    handle: std::io::Result<crate::limits::InputDir>,
+    /// The names in the folder and whether every entry could be read (`None`: unreadable).
+    entries: Option<(Vec<String>, bool)>,
+}
+
+impl OpenedDir {
+    /// Every name in the folder, sorted (empty when it cannot be opened or read).
+    pub fn names(&self) -> Vec<String> {
+        let mut names = self
+            .entries
+            .as_ref()
+            .map(|(n, _)| n.clone())
+            .unwrap_or_default();
+        names.sort();
+        names
+    }
+}
+
+/// Opens and lists a participant folder (see [`OpenedDir`]).
+pub fn open(dir: &ParticipantDir) -> OpenedDir {
+    let handle = crate::limits::open_dir(&dir.path);
+    let entries = handle
+        .as_ref()
+        .ok()
+        .and_then(|h| crate::limits::list_dir(h).ok());
+    OpenedDir { handle, entries }
+}
+
 /// Loads and checks one participant folder. Data dated after `as_of` are future data.
 pub fn load_participant(
     program: &Program,
     dir: &ParticipantDir,
+    as_of: NaiveDate,
+) -> LoadedParticipant {
+    load_opened(program, dir, open(dir), as_of)
+}
+
+/// [`load_participant`] of a folder already opened and listed.
+pub fn load_opened(
+    program: &Program,
+    dir: &ParticipantDir,
+    opened: OpenedDir,
     as_of: NaiveDate,
 ) -> LoadedParticipant {
     let id = dir.id.as_str();
@@ -303,9 +346,7 @@ pub fn load_participant(
     let mut files = Vec::new();
     let opts = csv_options(program);
 
-    // The folder is opened once without following a link, and its files relative to that
-    // handle: a folder replaced by a link since it was listed is not followed either.
-    let handle = match crate::limits::open_dir(&dir.path) {
+    let handle = match opened.handle {
         Ok(h) => h,
         Err(e) => {
             diags.push(
@@ -330,7 +371,7 @@ pub fn load_participant(
     // likely a misspelt name; the listing also tells `read_input` which input files exist. It
     // is read through the folder's handle and only trusted when every entry could be read.
     let mut listing: Option<Vec<String>> = None;
-    if let Ok((mut names, complete)) = crate::limits::list_dir(&handle) {
+    if let Some((mut names, complete)) = opened.entries {
         if complete {
             listing = Some(names.clone());
         }

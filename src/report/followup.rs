@@ -15,7 +15,7 @@ use super::templates::TemplateSet;
 use super::{ProgramView, RenderError, TableView};
 use crate::modules::ModuleResults;
 use crate::program::Format;
-use crate::run::execute::RunPlan;
+use super::Scope;
 use chrono::{Datelike, Months, NaiveDate};
 use cohortpress_metric_api::{FlagSeverity, ParticipantData, Period};
 use serde::{Deserialize, Serialize};
@@ -147,7 +147,7 @@ fn iso_dates(text: &str) -> Vec<String> {
 /// clinical flag. Runs the modules once more for the period before, to tell new flags from
 /// continuing ones.
 pub fn for_participant(
-    plan: &RunPlan,
+    plan: &Scope<'_>,
     data: &ParticipantData,
     results: &ModuleResults,
 ) -> Option<FollowupRecord> {
@@ -230,7 +230,7 @@ pub struct FollowupContext {
     pub table: TableView,
 }
 
-fn values(r: &FollowupRecord, plan: &RunPlan) -> String {
+fn values(r: &FollowupRecord, plan: &Scope<'_>) -> String {
     let units = plan.program.info.units;
     let mut v = Vec::new();
     if let Some(w) = r.weight_kg {
@@ -269,7 +269,7 @@ fn pretty_dates(s: &str) -> String {
 pub const PURPOSE: &str = "This list is for the program's clinician (or the licensed professional the program names), so that each participant whose records raised a clinical flag is offered a review. It names people and holds health data: keep it with clinical records, share it with nobody else, and do not use it to judge or rank participants. Flags come from self-reported records and published cut-offs; they call for a conversation, not a diagnosis.";
 
 /// The follow-up context for a set of records (sorted by id).
-pub fn context(plan: &RunPlan, records: &[FollowupRecord]) -> FollowupContext {
+pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext {
     let recipient = plan
         .program
         .def
@@ -327,7 +327,7 @@ pub fn context(plan: &RunPlan, records: &[FollowupRecord]) -> FollowupContext {
 
 /// The follow-up list as CSV: one row per flag, values in metric units with the unit in the
 /// column name.
-pub fn csv(plan: &RunPlan, records: &[FollowupRecord]) -> Result<Vec<u8>, RenderError> {
+pub fn csv(plan: &Scope<'_>, records: &[FollowupRecord]) -> Result<Vec<u8>, RenderError> {
     let mut w = csv::Writer::from_writer(Vec::new());
     let io = |e: csv::Error| RenderError::Template(format!("follow-up CSV: {e}"));
     w.write_record([
@@ -380,7 +380,7 @@ pub fn csv(plan: &RunPlan, records: &[FollowupRecord]) -> Result<Vec<u8>, Render
 /// Renders the list: `(file name, bytes)` for `followup.html`, `followup.pdf` (as the
 /// program's formats say) and always `followup.csv`.
 pub fn render(
-    plan: &RunPlan,
+    plan: &Scope<'_>,
     templates: &TemplateSet,
     records: &[FollowupRecord],
     formats: &[Format],

@@ -10,7 +10,7 @@ use crate::group::{ChangeLine, GroupReport, Section, SectionStats};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle,
 };
-use crate::run::execute::{RunPlan, RunSummary};
+use super::Scope;
 use serde::Serialize;
 
 /// What the group templates see (documented in `report-templates/CONTEXT.md`).
@@ -213,7 +213,11 @@ fn change_row(label: &str, c: &ChangeLine) -> Vec<String> {
 }
 
 /// Builds the group model.
-pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupReportModel {
+pub fn build(
+    plan: &Scope<'_>,
+    g: &GroupReport,
+    participants_with_errors: usize,
+) -> GroupReportModel {
     let mut charts = Vec::new();
     let mut sections = vec![section(
         plan,
@@ -233,8 +237,8 @@ pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupRepo
             sections.push(section(plan, s, &title, &anchor, &mut charts));
         }
     }
-    if summary.participants_with_errors > 0 {
-        let n = summary.participants_with_errors;
+    if participants_with_errors > 0 {
+        let n = participants_with_errors;
         notes.push(if n == 1 {
             "One participant folder could not be used because of input errors and is not counted here; the run's data-quality list (metrics/data-quality.csv) names the problems.".to_string()
         } else {
@@ -280,7 +284,7 @@ pub fn build(plan: &RunPlan, g: &GroupReport, summary: &RunSummary) -> GroupRepo
 }
 
 fn section(
-    plan: &RunPlan,
+    plan: &Scope<'_>,
     s: &Section,
     title: &str,
     anchor: &str,
@@ -313,7 +317,7 @@ fn section(
 }
 
 fn fill(
-    plan: &RunPlan,
+    plan: &Scope<'_>,
     st: &SectionStats,
     anchor: &str,
     view: &mut SectionView,

@@ -33,7 +33,7 @@
 
 use super::format as fmt;
 use crate::modules::ModuleResults;
-use crate::run::execute::RunPlan;
+use super::Scope;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{
     Cell, FlagSeverity, ModuleOutput, ParticipantData, Sex, Table, UnitSystem,
@@ -114,7 +114,7 @@ impl Default for Thresholds {
 impl Thresholds {
     /// The program's thresholds: `guidance:` in program.yaml over the defaults, and the floors
     /// and rates from the `energy` module's settings (one place for them).
-    pub fn from_plan(plan: &RunPlan) -> Self {
+    pub fn from_plan(plan: &Scope<'_>) -> Self {
         let d = Thresholds::default();
         let g = &plan.program.def.guidance;
         let energy = plan.modules.settings("energy");
@@ -364,7 +364,7 @@ fn row_num(t: &Table, kind: &str, col: &str) -> Option<f64> {
 }
 
 /// The state the decision table reads, from the module outputs.
-pub fn state_of(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults) -> State {
+pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) -> State {
     let trend = results.output("trend");
     let outcomes = results.output("outcomes");
     State {
@@ -406,7 +406,7 @@ struct Facts {
 }
 
 /// Builds the guidance section.
-pub fn build(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults) -> GuidanceView {
+pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) -> GuidanceView {
     let t = Thresholds::from_plan(plan);
     let state = state_of(plan, data, results);
     let phase = decide(&state, &t);

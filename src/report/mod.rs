@@ -20,8 +20,10 @@ use crate::group::GroupReport;
 use crate::modules::ModuleResults;
 use crate::program::Format;
 use crate::render::chart::{self, Chart};
-use crate::run::execute::{RunPlan, RunSummary};
-use cohortpress_metric_api::ParticipantData;
+use crate::modules::ModuleSet;
+use crate::program::Program;
+use chrono::NaiveDate;
+use cohortpress_metric_api::{ParticipantData, Period};
 use serde::Serialize;
 use templates::TemplateSet;
 
@@ -67,6 +69,21 @@ pub struct ChartView {
     pub table: TableView,
 }
 
+/// What a report covers: the program (units, dates, sponsor, guidance and follow-up settings),
+/// its modules (the follow-up list compares with the previous period), the reporting period and
+/// the as-of day. Reports see this, never the run plan.
+#[derive(Debug, Clone, Copy)]
+pub struct Scope<'a> {
+    /// The checked program.
+    pub program: &'a Program,
+    /// Its modules, settings resolved.
+    pub modules: &'a ModuleSet,
+    /// The reporting period.
+    pub period: Period,
+    /// The day treated as today.
+    pub as_of: NaiveDate,
+}
+
 /// Program and period, as shown on every report.
 #[derive(Debug, Clone, Serialize)]
 pub struct ProgramView {
@@ -93,8 +110,8 @@ pub struct ProgramView {
 }
 
 impl ProgramView {
-    /// From the run plan.
-    pub fn new(plan: &RunPlan) -> Self {
+    /// From the report's scope.
+    pub fn new(plan: &Scope<'_>) -> Self {
         let info = &plan.program.info;
         let p = plan.period;
         let whole_month = p.from.format("%d").to_string() == "01"
@@ -126,7 +143,7 @@ impl ProgramView {
 
 /// Builds the participant report model.
 pub fn participant_context(
-    plan: &RunPlan,
+    plan: &Scope<'_>,
     data: &ParticipantData,
     results: &ModuleResults,
     diags: &[Diagnostic],
@@ -136,11 +153,11 @@ pub fn participant_context(
 
 /// Builds the group report model.
 pub fn group_context(
-    plan: &RunPlan,
+    plan: &Scope<'_>,
     group: &GroupReport,
-    summary: &RunSummary,
+    participants_with_errors: usize,
 ) -> group::GroupReportModel {
-    group::build(plan, group, summary)
+    group::build(plan, group, participants_with_errors)
 }
 
 /// Why rendering failed.

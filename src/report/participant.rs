@@ -9,7 +9,7 @@ use crate::modules::ModuleResults;
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
 };
-use crate::run::execute::RunPlan;
+use super::Scope;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{
     Cell, FlagSeverity, ModuleOutput, ParticipantData, Table, UnitSystem,
@@ -175,7 +175,7 @@ fn cell_date(t: &Table, row: &[Cell], name: &str) -> Option<NaiveDate> {
 
 /// Builds the participant report.
 pub fn build(
-    plan: &RunPlan,
+    plan: &Scope<'_>,
     data: &ParticipantData,
     results: &ModuleResults,
     diags: &[Diagnostic],
@@ -561,7 +561,7 @@ fn weight_chart(
     energy: Option<&ModuleOutput>,
     target_kg: Option<f64>,
     units: UnitSystem,
-    plan: &RunPlan,
+    plan: &Scope<'_>,
 ) -> (Chart, ChartView) {
     let conv = |kg: f64| fmt::weight_value(kg, units);
     let unit = fmt::weight_unit(units);

@@ -314,32 +314,3 @@ fn text_helper(
         ),
     );
 }
-
-/// `cohortpress templates dump DIR`: writes the built-in templates out to start from. Existing
-/// files are never overwritten.
-pub fn dump_command(dir: &Path) -> i32 {
-    let mut written = 0;
-    for (name, text) in BUILTIN {
-        let path = dir.join(name);
-        if path.exists() {
-            eprintln!("skipped {} (exists)", path.display());
-            continue;
-        }
-        if let Some(p) = path.parent()
-            && let Err(e) = std::fs::create_dir_all(p)
-        {
-            eprintln!("error: {}: {e}", p.display());
-            return crate::exit_code::OUTPUT_FAILED;
-        }
-        if let Err(e) = std::fs::write(&path, text) {
-            eprintln!("error: {}: {e}", path.display());
-            return crate::exit_code::OUTPUT_FAILED;
-        }
-        written += 1;
-    }
-    println!(
-        "wrote {written} template files to {}; point report.templates in program.yaml at this folder (relative to the program folder)",
-        dir.display()
-    );
-    crate::exit_code::SUCCESS
-}

@@ -12,521 +12,20 @@
 //! are written to `cache/ID.json`, which `--incremental` and `merge` read back
 //! ([`crate::run::partial`], [`crate::run::shard`]).
 
-use crate::cmd::cli::{FormatArg, MergeArgs, RunArgs};
+use super::partial::{self, DiagRecord, InputRecord, ParticipantRecord, SummaryRecord, TidyRecord};
+use super::shard::{self, ShardFile};
+use super::{Blame, RunError, RunPlan, RunSummary, Timing};
 use crate::diag::{Diagnostic, Severity};
-use crate::exit_code;
 use crate::group::{self, GroupOptions, ParticipantSummary};
-use crate::modules::{self, ModuleResults, ModuleSet};
-use crate::output::{Access, OutputScope, OutputSet, OutputTarget, Staging, StagingError};
-use crate::run::partial::{
-    self, DiagRecord, InputRecord, ParticipantRecord, RunKey, SummaryRecord, TidyRecord,
-};
+use crate::modules::ModuleResults;
+use crate::output::{OutputSet, Staging};
 use crate::participant::{self, InputFile, ParticipantDir};
-use crate::program::{self, DefaultPeriod, Format, Program};
 use crate::report;
-use crate::run::shard::{self, ShardFile, ShardSpec};
 use crate::tidy;
-use chrono::{Datelike, NaiveDate};
-use cohortpress_metric_api::{ParticipantData, Period};
+use cohortpress_metric_api::ParticipantData;
 use rayon::prelude::*;
-use std::path::{Path, PathBuf};
 use std::sync::Mutex;
 use std::time::Instant;
-
-/// Everything a run needs, resolved from the command line and `program.yaml`.
-pub struct RunPlan {
-    /// The checked program.
-    pub program: Program,
-    /// Its modules, settings resolved.
-    pub modules: ModuleSet,
-    /// The reporting period.
-    pub period: Period,
-    /// The day treated as today.
-    pub as_of: NaiveDate,
-    /// The output folder.
-    pub out_dir: PathBuf,
-    /// How the output folder was named (`--out` or `report.out`), for refusals.
-    pub out_named_by: &'static str,
-    /// Formats to write.
-    pub formats: Vec<Format>,
-    /// Only these participant ids (empty = all).
-    pub only: Vec<String>,
-    /// Worker threads.
-    pub jobs: usize,
-    /// Reuse unchanged participants' previous results (`--incremental`).
-    pub incremental: bool,
-    /// Process only this shard (`--shard K/N`).
-    pub shard: Option<ShardSpec>,
-    /// Who may read the outputs.
-    pub access: Access,
-    /// What the results depend on besides each participant's own files.
-    pub key: RunKey,
-    /// State folder of the group-report ledger (`--state`, default `<out>.ledger`).
-    pub state_dir: PathBuf,
-}
-
-impl RunPlan {
-    /// What this run puts in its output folder.
-    pub fn scope(&self) -> OutputScope {
-        if self.shard.is_some() {
-            OutputScope::Shard
-        } else if !self.only.is_empty() {
-            OutputScope::Only
-        } else {
-            OutputScope::Complete
-        }
-    }
-
-    /// The output folder with what it must never touch.
-    pub fn output_target(&self) -> OutputTarget {
-        OutputTarget::for_program(
-            &self.program,
-            self.out_dir.clone(),
-            self.scope(),
-            self.out_named_by,
-        )
-    }
-
-    /// Takes the output folder for this run (see [`Staging::begin`]). A refusal names the
-    /// folder; its exit code says who named it: the command line (2) or program.yaml (3).
-    pub fn begin_staging(&self) -> Result<Staging, RunError> {
-        Staging::begin(&self.output_target(), self.access).map_err(|e| match e {
-            StagingError::Refused(m) => RunError::Refused {
-                message: m,
-                code: if self.out_named_by == "--out" {
-                    exit_code::USAGE
-                } else {
-                    exit_code::PROGRAM_INVALID
-                },
-            },
-            other => other.into(),
-        })
-    }
-}
-
-/// Seconds spent in each phase of a run, reported in the log only (never in an output file, so
-/// identical runs keep identical outputs).
-#[derive(Debug, Clone, Copy, Default)]
-pub struct Timing {
-    /// Loading, modules and participant reports (all workers).
-    pub participants_s: f64,
-    /// Group statistics and group reports.
-    pub group_s: f64,
-    /// Tidy metrics files.
-    pub tidy_s: f64,
-    /// Manifest and the swap into place.
-    pub commit_s: f64,
-}
-
-/// `cohortpress run`.
-pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
-    let started = Instant::now();
-    let plan = match plan_from_args(args, today) {
-        Ok(p) => p,
-        Err((code, diags)) => {
-            for d in &diags {
-                eprintln!("{d}");
-            }
-            return code;
-        }
-    };
-    let plan_s = started.elapsed().as_secs_f64();
-    match execute(&plan) {
-        Ok((summary, timing)) => {
-            let ms = |s: f64| (s * 1000.0).round() / 1000.0;
-            tracing::info!(
-                plan_s = ms(plan_s),
-                participants_s = ms(timing.participants_s),
-                group_s = ms(timing.group_s),
-                tidy_s = ms(timing.tidy_s),
-                commit_s = ms(timing.commit_s),
-                "timing in seconds per phase"
-            );
-            tracing::info!(
-                "done in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
-                started.elapsed().as_secs_f64(),
-                summary.reported,
-                summary.participants_with_errors + summary.skipped_folders,
-                summary.module_failures,
-                summary.warnings,
-                plan.out_dir.display()
-            );
-            summary.exit_code()
-        }
-        Err(e) => {
-            tracing::error!("{e:#}");
-            e.exit_code()
-        }
-    }
-}
-
-/// `cohortpress modules [PROGRAM]`.
-pub fn modules_command(program: Option<&Path>) -> i32 {
-    let loaded = match program {
-        Some(root) => match program::load_program(root) {
-            Ok(p) => Some(p),
-            Err(diags) => {
-                for d in &diags {
-                    eprintln!("{d}");
-                }
-                return exit_code::PROGRAM_INVALID;
-            }
-        },
-        None => None,
-    };
-    print!("{}", modules::describe_modules(loaded.as_ref()));
-    exit_code::SUCCESS
-}
-
-type PlanError = (i32, Vec<Diagnostic>);
-
-fn usage(message: String) -> PlanError {
-    (
-        exit_code::USAGE,
-        vec![Diagnostic::error("command line", message)],
-    )
-}
-
-/// Loads and checks the program (refusing an oversized `program.yaml` before reading it) and
-/// its modules.
-fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
-    let file = root.join(program::load::PROGRAM_FILE);
-    if let Err(m) = crate::limits::check_size(&file) {
-        return Err((
-            exit_code::PROGRAM_INVALID,
-            vec![Diagnostic::error(program::load::PROGRAM_FILE, m)],
-        ));
-    }
-    let program = program::load_program(root).map_err(|d| (exit_code::PROGRAM_INVALID, d))?;
-    let (modules, warnings) =
-        modules::build_module_set(&program).map_err(|d| (exit_code::PROGRAM_INVALID, d))?;
-    for w in &warnings {
-        tracing::warn!("{w}");
-    }
-    Ok((program, modules))
-}
-
-/// Resolves the plan: loads and checks the program and its modules, the period and the output
-/// folder.
-pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanError> {
-    let (program, modules) = load_checked(&args.program)?;
-    let as_of = args.as_of.unwrap_or(today);
-    let period = resolve_period(&program, as_of, args).map_err(usage)?;
-    let (mut out_dir, out_named_by) = match &args.out {
-        Some(o) => (o.clone(), "--out"),
-        None => (program.root.join(&program.def.report.out), "report.out"),
-    };
-    if let (Some(s), None) = (args.shard, &args.out) {
-        out_dir = shard::default_shard_out(&out_dir, s);
-    }
-    let formats = if args.formats.is_empty() {
-        let mut f = program.def.report.formats.clone();
-        f.sort();
-        f.dedup();
-        f
-    } else {
-        let mut f: Vec<Format> = args
-            .formats
-            .iter()
-            .map(|f| match f {
-                FormatArg::Html => Format::Html,
-                FormatArg::Pdf => Format::Pdf,
-            })
-            .collect();
-        f.sort();
-        f.dedup();
-        f
-    };
-    let jobs = args.jobs.unwrap_or_else(|| {
-        std::thread::available_parallelism()
-            .map(|n| n.get())
-            .unwrap_or(1)
-    });
-    if jobs == 0 {
-        return Err(usage("--jobs must be at least 1".into()));
-    }
-    let key = run_key(&program, &modules, period, as_of, &formats)?;
-    let state_dir = args
-        .state
-        .clone()
-        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
-    Ok(RunPlan {
-        program,
-        modules,
-        period,
-        as_of,
-        out_dir,
-        out_named_by,
-        formats,
-        only: args.only.clone(),
-        jobs,
-        incremental: args.incremental,
-        shard: args.shard,
-        access: shard::access(args.group_readable),
-        key,
-        state_dir,
-    })
-}
-
-/// The plan of `merge`: the program from the command line; period, as-of date and formats from
-/// the shards' run key (the caller checks the recomputed key equals the shards').
-pub fn plan_for_merge(
-    args: &MergeArgs,
-    key: &RunKey,
-    only: Vec<String>,
-) -> Result<RunPlan, PlanError> {
-    let (program, modules) = load_checked(&args.program)?;
-    let date = |s: &str| {
-        s.parse::<NaiveDate>()
-            .map_err(|_| usage(format!("shard.json holds an unreadable date `{s}`")))
-    };
-    let period = Period {
-        from: date(&key.period_from)?,
-        to: date(&key.period_to)?,
-    };
-    let as_of = date(&key.as_of)?;
-    let mut formats = Vec::new();
-    for f in &key.formats {
-        formats.push(match f.as_str() {
-            "html" => Format::Html,
-            "pdf" => Format::Pdf,
-            other => {
-                return Err(usage(format!(
-                    "shard.json names an unknown format `{other}`"
-                )));
-            }
-        });
-    }
-    let (out_dir, out_named_by) = match &args.out {
-        Some(o) => (o.clone(), "--out"),
-        None => (program.root.join(&program.def.report.out), "report.out"),
-    };
-    let key = run_key(&program, &modules, period, as_of, &formats)?;
-    let state_dir = args
-        .state
-        .clone()
-        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
-    Ok(RunPlan {
-        program,
-        modules,
-        period,
-        as_of,
-        out_dir,
-        out_named_by,
-        formats,
-        only,
-        jobs: 1,
-        incremental: false,
-        shard: None,
-        access: shard::access(args.group_readable),
-        key,
-        state_dir,
-    })
-}
-
-fn format_name(f: &Format) -> String {
-    format!("{f:?}").to_lowercase()
-}
-
-/// The run key: hashes of `program.yaml` and the template folder, the modules' settings,
-/// period, as-of date, formats and tool version.
-pub fn run_key(
-    program: &Program,
-    modules: &ModuleSet,
-    period: Period,
-    as_of: NaiveDate,
-    formats: &[Format],
-) -> Result<RunKey, PlanError> {
-    let read = |p: &Path| {
-        crate::limits::read_input(p).map_err(|e| {
-            (
-                exit_code::PROGRAM_INVALID,
-                vec![Diagnostic::error(
-                    p.display().to_string(),
-                    format!("cannot read ({e})"),
-                )],
-            )
-        })
-    };
-    let program_yaml = blake3::hash(&read(&program.root.join(program::load::PROGRAM_FILE))?)
-        .to_hex()
-        .to_string();
-    let templates = match &program.def.report.templates {
-        None => "built-in".to_string(),
-        Some(t) => {
-            let dir = program.root.join(t);
-            let mut h = blake3::Hasher::new();
-            for entry in walkdir::WalkDir::new(&dir).sort_by_file_name() {
-                let Ok(entry) = entry else { continue };
-                if entry.file_type().is_file() {
-                    let rel = entry.path().strip_prefix(&dir).unwrap_or(entry.path());
-                    h.update(rel.to_string_lossy().as_bytes());
-                    h.update(&[0]);
-                    h.update(blake3::hash(&read(entry.path())?).as_bytes());
-                }
-            }
-            h.finalize().to_hex().to_string()
-        }
-    };
-    Ok(RunKey {
-        tool: format!("cohortpress {}", env!("CARGO_PKG_VERSION")),
-        program_yaml,
-        templates,
-        modules: modules.settings_fingerprint(),
-        period_from: period.from.to_string(),
-        period_to: period.to.to_string(),
-        as_of: as_of.to_string(),
-        formats: formats.iter().map(format_name).collect(),
-    })
-}
-
-/// The reporting period: `--period YYYY-MM`, `--from/--to`, or program.yaml's rule, clipped to
-/// the program's dates.
-pub fn resolve_period(
-    program: &Program,
-    as_of: NaiveDate,
-    args: &RunArgs,
-) -> Result<Period, String> {
-    let (start, end) = (program.info.start, program.info.end);
-    let raw = if let Some(p) = &args.period {
-        month_period(p)
-            .ok_or_else(|| format!("--period: expected a month like 2026-09, found `{p}`"))?
-    } else if let (Some(from), Some(to)) = (args.from, args.to) {
-        if from > to {
-            return Err(format!("--from {from} is after --to {to}"));
-        }
-        Period { from, to }
-    } else {
-        match program.def.report.period {
-            DefaultPeriod::ProgramToDate => Period {
-                from: start,
-                to: as_of.min(end),
-            },
-            DefaultPeriod::LastFullMonth => {
-                let first_of_this = as_of.with_day(1).expect("day 1 exists");
-                let last_month_end = first_of_this.pred_opt().expect("date in range");
-                let candidate = last_month_end.with_day(1).expect("day 1 exists");
-                if candidate > end {
-                    // The program is over: report its last month.
-                    let m = end.with_day(1).expect("day 1 exists");
-                    Period { from: m, to: end }
-                } else {
-                    Period {
-                        from: candidate,
-                        to: last_month_end,
-                    }
-                }
-            }
-        }
-    };
-    let from = raw.from.max(start);
-    let to = raw.to.min(end);
-    if from > to {
-        return Err(format!(
-            "the period {} to {} lies outside the program ({start} to {end})",
-            raw.from, raw.to
-        ));
-    }
-    if from > as_of {
-        return Err(format!(
-            "the period starts {from}, after the as-of date {as_of}"
-        ));
-    }
-    Ok(Period { from, to })
-}
-
-fn month_period(s: &str) -> Option<Period> {
-    let (y, m) = s.split_once('-')?;
-    let from = NaiveDate::from_ymd_opt(y.parse().ok()?, m.parse().ok()?, 1)?;
-    let next = if from.month() == 12 {
-        NaiveDate::from_ymd_opt(from.year() + 1, 1, 1)?
-    } else {
-        NaiveDate::from_ymd_opt(from.year(), from.month() + 1, 1)?
-    };
-    Some(Period {
-        from,
-        to: next.pred_opt()?,
-    })
-}
-
-/// Totals of a finished run, and its exit code.
-#[derive(Debug, Default, Clone, serde::Serialize)]
-pub struct RunSummary {
-    /// Participant folders found (after `--only`).
-    pub participants: usize,
-    /// Participants with a report.
-    pub reported: usize,
-    /// Participants left out because of input errors.
-    pub participants_with_errors: usize,
-    /// Module failures (participant × module).
-    pub module_failures: usize,
-    /// Input warnings.
-    pub warnings: usize,
-    /// Warnings about the participants folder (stray files, links).
-    pub program_warnings: usize,
-    /// Participant folders skipped because their name is not a usable id.
-    pub skipped_folders: usize,
-}
-
-impl RunSummary {
-    /// The documented exit code for this outcome (see [`exit_code::Outcome`]).
-    pub fn exit_code(&self) -> i32 {
-        exit_code::Outcome {
-            program_invalid: false,
-            participants_left_out: self.participants_with_errors + self.skipped_folders,
-            module_failures: self.module_failures,
-            warnings: self.warnings + self.program_warnings,
-        }
-        .exit_code()
-    }
-}
-
-/// A run that could not complete.
-#[derive(Debug, thiserror::Error)]
-pub enum RunError {
-    /// Another run holds the lock.
-    #[error("{0}")]
-    Locked(String),
-    /// Writing outputs failed; the previous outputs are intact.
-    #[error("writing outputs failed: {0}")]
-    Output(String),
-    /// Rendering a report failed (a template error, for instance).
-    #[error("rendering failed: {0}")]
-    Render(String),
-    /// The run may not write where it was asked to, or cannot run on these inputs; nothing was
-    /// written and the previous output is untouched.
-    #[error("{message}")]
-    Refused {
-        /// What is wrong and what to do.
-        message: String,
-        /// The exit code (usage or program invalid).
-        code: i32,
-    },
-}
-
-impl RunError {
-    /// The documented exit code.
-    pub fn exit_code(&self) -> i32 {
-        match self {
-            RunError::Locked(_) => exit_code::LOCKED,
-            RunError::Output(_) | RunError::Render(_) => exit_code::OUTPUT_FAILED,
-            RunError::Refused { code, .. } => *code,
-        }
-    }
-}
-
-impl From<StagingError> for RunError {
-    fn from(e: StagingError) -> Self {
-        match e {
-            StagingError::Locked(m) => RunError::Locked(m),
-            StagingError::Refused(m) => RunError::Refused {
-                message: m,
-                code: exit_code::USAGE,
-            },
-            other => RunError::Output(other.to_string()),
-        }
-    }
-}
 
 /// The participant folders a plan covers: discovery, then `--only`, then `--shard`. Refused
 /// (nothing is written) when there is nothing sound to report on: `participants/` missing or
@@ -544,7 +43,7 @@ pub fn select_participants(
                     .trim_start_matches("error: ")
                     .replace('\n', " |")
             ),
-            code: exit_code::PROGRAM_INVALID,
+            by: Blame::Program,
         });
     }
     if !plan.only.is_empty() {
@@ -564,7 +63,7 @@ pub fn select_participants(
                         .join(participant::PARTICIPANTS_DIR)
                         .display()
                 ),
-                code: exit_code::USAGE,
+                by: Blame::CommandLine,
             });
         }
         dirs.retain(|d| plan.only.contains(&d.id));
@@ -605,17 +104,25 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     let results: Vec<Result<(ParticipantRecord, bool), RunError>> = pool.install(|| {
         dirs.par_iter()
             .map(|dir| {
+                // Each folder is opened and listed once, for reuse and for loading.
+                let opened = participant::open(dir);
+                let names = opened.names();
                 let reused = if plan.incremental {
-                    reuse_participant(plan, &key_hash, &staging, dir)?
+                    reuse_participant(plan, &key_hash, &staging, dir, &names)?
                 } else {
                     None
                 };
                 let (mut rec, was_reused) = match reused {
                     Some(rec) => (rec, true),
-                    None => (
-                        process_participant(plan, &key_hash, &templates, &staging, dir)?,
-                        false,
-                    ),
+                    None => {
+                        let job = Job {
+                            plan,
+                            key_hash: &key_hash,
+                            templates: &templates,
+                            staging: &staging,
+                        };
+                        (process_participant(&job, dir, opened, names)?, false)
+                    }
                 };
                 keep_light(&mut rec, &columns);
                 let r = (rec, was_reused);
@@ -805,7 +312,7 @@ pub fn finish(
     let headline = report::group::headline(&group, &format!("{period_from} to {period_to}"));
     group.releases = ledger.earlier_headlines(&program_id, &period_to);
     group.releases.push(headline.clone());
-    let group_ctx = report::group_context(plan, &group, &summary);
+    let group_ctx = report::group_context(&plan.report_scope(), &group, summary.participants_with_errors);
     let group_files = report::render_group(templates, &group_ctx, &plan.formats)
         .map_err(|e| RunError::Render(e.to_string()))?;
     for (name, bytes) in group_files {
@@ -818,7 +325,7 @@ pub fn finish(
     // the records alone, never from (or into) the group step.
     if plan.program.def.followup.is_some() {
         let list: Vec<_> = records.iter().filter_map(|r| r.followup.clone()).collect();
-        let files = report::followup::render(plan, templates, &list, &plan.formats)
+        let files = report::followup::render(&plan.report_scope(), templates, &list, &plan.formats)
             .map_err(|e| RunError::Render(e.to_string()))?;
         for (name, bytes) in files {
             staging.write_private(&format!("{}/{name}", report::followup::FOLDER), &bytes)?;
@@ -829,13 +336,13 @@ pub fn finish(
     // Tidy metrics.
     let phase = Instant::now();
     let ids: Vec<String> = records.iter().map(|r| r.id.clone()).collect();
-    tidy::render(plan, columns, &ids, &staging, &all_diags, &group)
+    write_tidy(plan, columns, &ids, &staging, &all_diags, &group)
         .map_err(|e| RunError::Output(e.to_string()))?;
     timing.tidy_s = phase.elapsed().as_secs_f64();
 
     // Manifest last: it lists every other output.
     let phase = Instant::now();
-    let manifest = crate::output::manifest(plan, &inputs, &staging, &summary)
+    let manifest = super::manifest::manifest(plan, &inputs, &staging, &summary)
         .map_err(|e| RunError::Output(e.to_string()))?;
     staging.write("manifest.json", &manifest)?;
     let outputs: OutputSet = staging.commit()?;
@@ -854,19 +361,6 @@ pub fn finish(
     Ok((summary, timing))
 }
 
-/// Names of every entry of a participant folder, sorted.
-fn listing(dir: &ParticipantDir) -> Vec<String> {
-    let mut names: Vec<String> = std::fs::read_dir(&dir.path)
-        .map(|rd| {
-            rd.filter_map(|e| e.ok())
-                .map(|e| e.file_name().to_string_lossy().into_owned())
-                .collect()
-        })
-        .unwrap_or_default();
-    names.sort();
-    names
-}
-
 /// `--incremental`: the participant's previous record and reports, copied into staging, when
 /// nothing they depend on changed: the run key, the folder listing and every input file's
 /// hash, and the previous report files are intact. `None` means recompute.
@@ -875,6 +369,7 @@ fn reuse_participant(
     key_hash: &str,
     staging: &Staging,
     dir: &ParticipantDir,
+    names: &[String],
 ) -> Result<Option<ParticipantRecord>, RunError> {
     let prev = staging.final_dir();
     let rel = partial::cache_path(&dir.id);
@@ -886,7 +381,7 @@ fn reuse_participant(
     let Some(rec) = ParticipantRecord::from_bytes(&bytes) else {
         return Ok(None);
     };
-    if rec.id != dir.id || rec.run_key != key_hash || rec.listing != listing(dir) {
+    if rec.id != dir.id || rec.run_key != key_hash || rec.listing != names {
         return Ok(None);
     }
     for f in &rec.files {
@@ -909,18 +404,31 @@ fn reuse_participant(
     Ok(Some(rec))
 }
 
+/// What every participant's processing shares.
+#[derive(Clone, Copy)]
+struct Job<'a> {
+    plan: &'a RunPlan,
+    key_hash: &'a str,
+    templates: &'a report::templates::TemplateSet,
+    staging: &'a Staging,
+}
+
 /// Load → modules → participant report → written into staging, with the participant's
 /// record (also written, as `cache/ID.json`). A participant's own problems never fail the run:
 /// only an output write or template failure does.
 fn process_participant(
-    plan: &RunPlan,
-    key_hash: &str,
-    templates: &report::templates::TemplateSet,
-    staging: &Staging,
+    job: &Job<'_>,
     dir: &ParticipantDir,
+    opened: participant::OpenedDir,
+    names: Vec<String>,
 ) -> Result<ParticipantRecord, RunError> {
-    let names = listing(dir);
-    let loaded = participant::load_participant(&plan.program, dir, plan.as_of);
+    let Job {
+        plan,
+        key_hash,
+        templates,
+        staging,
+    } = *job;
+    let loaded = participant::load_opened(&plan.program, dir, opened, plan.as_of);
     let mut rec = ParticipantRecord {
         format: partial::FORMAT,
         id: loaded.id.clone(),
@@ -947,7 +455,7 @@ fn process_participant(
             .iter()
             .map(|f| (f.module.clone(), f.message.clone()))
             .collect();
-        let ctx = report::participant_context(plan, &data, &results, &loaded.diagnostics);
+        let ctx = report::participant_context(&plan.report_scope(), &data, &results, &loaded.diagnostics);
         let files = report::render_participant(templates, &ctx, &plan.formats)
             .map_err(|e| RunError::Render(format!("participant {}: {e}", data.profile.id)))?;
         // Each report is written and dropped at once: no report bytes outlive this loop.
@@ -960,11 +468,9 @@ fn process_participant(
         rec.summary = Some(SummaryRecord::from_summary(&summary_row(
             plan, &data, &results,
         )));
-        rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(
-            plan, &data, &results,
-        )));
+        rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(&data, &results)));
         // Clinician follow-up list: this participant's flags, when the program turns it on.
-        rec.followup = report::followup::for_participant(plan, &data, &results);
+        rec.followup = report::followup::for_participant(&plan.report_scope(), &data, &results);
     }
     staging.write(&partial::cache_path(&rec.id), &rec.to_bytes())?;
     Ok(rec)
@@ -1045,4 +551,47 @@ pub fn summary_row(
         clinical_flags,
         pseudonym: None,
     }
+}
+
+/// The tidy metrics files, written into staging: the participants' metrics streamed from their
+/// partial results (already in staging), then the data-quality list and the group statistics.
+fn write_tidy(
+    plan: &RunPlan,
+    columns: &tidy::Columns,
+    ids: &[String],
+    staging: &Staging,
+    diags: &[Diagnostic],
+    group: &group::GroupReport,
+) -> Result<(), tidy::TidyError> {
+    let mut participants = staging.create("metrics/participants.csv")?;
+    let mut json = staging.create("metrics/participants.json")?;
+    let mut weekly = staging.create("metrics/weekly.csv")?;
+    let mut tables = staging.create("metrics/tables.csv")?;
+    let load = |id: &str| {
+        let bytes = staging
+            .read(&partial::cache_path(id))
+            .map_err(|e| e.to_string())?;
+        let rec = ParticipantRecord::from_bytes(&bytes)
+            .ok_or_else(|| format!("cache/{id}.json: unreadable partial result"))?;
+        Ok(rec.tidy.map(TidyRecord::into_tidy))
+    };
+    tidy::render(
+        plan.period,
+        columns,
+        ids,
+        &load,
+        tidy::TidySinks {
+            participants: &mut participants,
+            json: &mut json,
+            weekly: &mut weekly,
+            tables: &mut tables,
+        },
+    )?;
+    json.finish()?;
+    participants.finish()?;
+    weekly.finish()?;
+    tables.finish()?;
+    staging.write("metrics/data-quality.csv", &tidy::data_quality(diags)?)?;
+    staging.write("metrics/group.json", &tidy::group_json(group)?)?;
+    Ok(())
 }

@@ -1,5 +1,105 @@
-//! A run: its plan, execution, shards and merge, and the partial results they share.
+//! A run: its plan ([`plan`]), execution ([`execute`]), shards and merge ([`shard`]), the
+//! per-participant partial results they share ([`partial`]) and the manifest ([`manifest`]).
+//!
+//! Nothing here prints or knows exit codes: a run ends in one [`Outcome`], which
+//! [`crate::cmd`] reports and maps to an exit code.
 
 pub mod execute;
+pub mod manifest;
 pub mod partial;
+pub mod plan;
 pub mod shard;
+
+use crate::diag::Diagnostic;
+use crate::output::StagingError;
+
+pub use plan::{MergeOptions, RunOptions, RunPlan};
+
+/// How a run ended: its totals and timing, or why it could not complete.
+pub type Outcome = Result<(RunSummary, Timing), RunError>;
+
+/// Seconds spent in each phase of a run, reported in the log only (never in an output file, so
+/// identical runs keep identical outputs).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Timing {
+    /// Loading, modules and participant reports (all workers).
+    pub participants_s: f64,
+    /// Group statistics and group reports.
+    pub group_s: f64,
+    /// Tidy metrics files.
+    pub tidy_s: f64,
+    /// Manifest and the swap into place.
+    pub commit_s: f64,
+}
+
+/// Totals of a finished run ([`crate::cmd`] maps them to an exit code).
+#[derive(Debug, Default, Clone, serde::Serialize)]
+pub struct RunSummary {
+    /// Participant folders found (after `--only`).
+    pub participants: usize,
+    /// Participants with a report.
+    pub reported: usize,
+    /// Participants left out because of input errors.
+    pub participants_with_errors: usize,
+    /// Module failures (participant × module).
+    pub module_failures: usize,
+    /// Input warnings.
+    pub warnings: usize,
+    /// Warnings about the participants folder (stray files, links).
+    pub program_warnings: usize,
+    /// Participant folders skipped because their name is not a usable id.
+    pub skipped_folders: usize,
+}
+
+/// Who named what a run refuses: the command line or `program.yaml`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Blame {
+    /// A wrong command line (an option, `--out`, `--only`, the shards given to `merge`).
+    CommandLine,
+    /// The program folder (`program.yaml`, its `report.out`, a missing `participants/`).
+    Program,
+}
+
+/// A run that could not complete.
+#[derive(Debug, thiserror::Error)]
+pub enum RunError {
+    /// The plan cannot be made: the program or the command line is invalid (every problem).
+    #[error("{}", diagnostics.iter().map(|d| d.to_string()).collect::<Vec<_>>().join("\n"))]
+    Invalid {
+        /// Who is to blame.
+        by: Blame,
+        /// Every problem found.
+        diagnostics: Vec<Diagnostic>,
+    },
+    /// Another run holds the lock.
+    #[error("{0}")]
+    Locked(String),
+    /// Writing outputs failed; the previous outputs are intact.
+    #[error("writing outputs failed: {0}")]
+    Output(String),
+    /// Rendering a report failed (a template error, for instance).
+    #[error("rendering failed: {0}")]
+    Render(String),
+    /// The run may not write where it was asked to, or cannot run on these inputs; nothing was
+    /// written and the previous output is untouched.
+    #[error("{message}")]
+    Refused {
+        /// What is wrong and what to do.
+        message: String,
+        /// Who is to blame.
+        by: Blame,
+    },
+}
+
+impl From<StagingError> for RunError {
+    fn from(e: StagingError) -> Self {
+        match e {
+            StagingError::Locked(m) => RunError::Locked(m),
+            StagingError::Refused(m) => RunError::Refused {
+                message: m,
+                by: Blame::CommandLine,
+            },
+            other => RunError::Output(other.to_string()),
+        }
+    }
+}

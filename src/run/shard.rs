@@ -12,16 +12,12 @@
 //! results, and then builds the group report, tidy metrics and manifest exactly as a single run
 //! does, so the merged folder equals a single run's byte for byte.
 
-use crate::cmd::cli::MergeArgs;
+use super::partial::{self, DiagRecord, ParticipantRecord, RunKey};
+use super::{Blame, MergeOptions, RunError, RunPlan, RunSummary, execute};
 use crate::diag::Diagnostic;
-use crate::exit_code;
-use crate::output::Access;
-use crate::run::partial::{self, DiagRecord, ParticipantRecord, RunKey};
-use crate::run::execute::{self, RunError, RunPlan};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 use std::str::FromStr;
-use std::time::Instant;
 
 /// Name of the shard description inside a shard's output folder.
 pub const SHARD_FILE: &str = "shard.json";
@@ -115,12 +111,15 @@ pub fn default_shard_out(out: &Path, shard: ShardSpec) -> PathBuf {
     out.with_file_name(format!("{name}-shard-{}-of-{}", shard.index, shard.count))
 }
 
-fn merge_error(message: String) -> (i32, Vec<Diagnostic>) {
-    (exit_code::USAGE, vec![Diagnostic::error("merge", message)])
+fn merge_error(message: String) -> RunError {
+    RunError::Invalid {
+        by: Blame::CommandLine,
+        diagnostics: vec![Diagnostic::error("merge", message)],
+    }
 }
 
 /// Reads and checks every shard's `shard.json`: same run, same N, each of 1…N exactly once.
-fn read_shards(dirs: &[PathBuf]) -> Result<Vec<ShardFile>, (i32, Vec<Diagnostic>)> {
+fn read_shards(dirs: &[PathBuf]) -> Result<Vec<ShardFile>, RunError> {
     let mut shards = Vec::new();
     for d in dirs {
         let path = d.join(SHARD_FILE);
@@ -194,57 +193,28 @@ fn read_shards(dirs: &[PathBuf]) -> Result<Vec<ShardFile>, (i32, Vec<Diagnostic>
     Ok(shards)
 }
 
-/// `cohortpress merge PROGRAM SHARD_DIR… [--out DIR]`.
-pub fn merge_command(args: &MergeArgs) -> i32 {
-    let started = Instant::now();
-    let fail = |(code, diags): (i32, Vec<Diagnostic>)| {
-        for d in &diags {
-            tracing::error!("{}", d.to_string().replace('\n', " |"));
-        }
-        code
-    };
-    let shards = match read_shards(&args.shards) {
-        Ok(s) => s,
-        Err(e) => return fail(e),
-    };
+/// `merge`: checks the shards, plans the merged run and writes the complete output. Returns
+/// the totals, the number of shards and the output folder.
+pub fn merge_shards(opts: &MergeOptions) -> Result<(RunSummary, usize, PathBuf), RunError> {
+    let shards = read_shards(&opts.shards)?;
     let key = shards[0].key.clone();
-    let plan = match execute::plan_for_merge(args, &key, shards[0].only.clone()) {
-        Ok(p) => p,
-        Err(e) => return fail(e),
-    };
+    let plan = super::plan::plan_for_merge(opts, &key, shards[0].only.clone())?;
     if plan.key != key {
-        return fail(merge_error(
+        return Err(merge_error(
             "the program folder changed since the shards ran (program.yaml, templates, modules \
              or the cohortpress version differ); run the shards again"
                 .into(),
         ));
     }
-    match merge(&plan, &args.shards, &shards) {
-        Ok(summary) => {
-            tracing::info!(
-                "merged {} shards in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
-                shards.len(),
-                started.elapsed().as_secs_f64(),
-                summary.reported,
-                summary.participants_with_errors + summary.skipped_folders,
-                summary.module_failures,
-                summary.warnings,
-                plan.out_dir.display()
-            );
-            summary.exit_code()
-        }
-        Err(e) => {
-            tracing::error!("{e:#}");
-            e.exit_code()
-        }
-    }
+    let summary = merge(&plan, &opts.shards, &shards)?;
+    Ok((summary, shards.len(), plan.out_dir))
 }
 
 fn merge(
     plan: &RunPlan,
     dirs: &[PathBuf],
     shards: &[ShardFile],
-) -> Result<execute::RunSummary, RunError> {
+) -> Result<RunSummary, RunError> {
     let staging = plan.begin_staging()?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();
@@ -300,15 +270,6 @@ fn merge(
     let (summary, _timing) =
         execute::finish(plan, &templates, staging, &discovery, &records, &columns)?;
     Ok(summary)
-}
-
-/// Access for the merged output.
-pub fn access(group_readable: bool) -> Access {
-    if group_readable {
-        Access::Group
-    } else {
-        Access::Owner
-    }
 }
 
 #[cfg(test)]

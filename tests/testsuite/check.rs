@@ -114,7 +114,7 @@ fn check_names_every_defect_through_the_library() {
     let before = tree_hashes(&t.dir);
     let mut out = Vec::new();
     let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
-    let code = cohortpress::check::run_check(&t.dir, as_of, &mut out);
+    let code = cohortpress::cmd::check::run_check(&t.dir, as_of, &mut out);
     assert_eq!(before, tree_hashes(&t.dir), "check modified its inputs");
     assert_eq!(code, cohortpress::exit_code::PARTICIPANT_ERRORS);
     let text = String::from_utf8(out).unwrap();

@@ -12,7 +12,7 @@ const AS_OF: &str = "2026-12-01";
 
 /// For each usable sample participant: (state, phase, guidance, participant HTML).
 struct Sample {
-    plan: cohortpress::run::execute::RunPlan,
+    plan: cohortpress::run::RunPlan,
     people: BTreeMap<
         String,
         (
@@ -39,11 +39,13 @@ fn sample() -> Sample {
         panic!("not a run command")
     };
     let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
-    let plan = cohortpress::run::execute::plan_from_args(&args, today).unwrap_or_else(|(c, d)| {
-        panic!("plan: exit {c}: {d:?}");
+    let options = cohortpress::cmd::run::run_options(&args);
+    let plan = cohortpress::run::plan::plan(&options, today).unwrap_or_else(|e| {
+        panic!("plan: {e}");
     });
+    let scope = plan.report_scope();
     let (dirs, _) = cohortpress::participant::discover(&plan.program);
-    let t = Thresholds::from_plan(&plan);
+    let t = Thresholds::from_plan(&scope);
     let mut people = BTreeMap::new();
     for dir in &dirs {
         let loaded = cohortpress::participant::load_participant(&plan.program, dir, plan.as_of);
@@ -51,11 +53,11 @@ fn sample() -> Sample {
         let results = plan
             .modules
             .run(&plan.program.info, plan.period, plan.as_of, &data);
-        let state = guidance::state_of(&plan, &data, &results);
+        let state = guidance::state_of(&scope, &data, &results);
         let phase = guidance::decide(&state, &t);
-        let g = guidance::build(&plan, &data, &results);
+        let g = guidance::build(&scope, &data, &results);
         let ctx =
-            cohortpress::report::participant_context(&plan, &data, &results, &loaded.diagnostics)
+            cohortpress::report::participant_context(&scope, &data, &results, &loaded.diagnostics)
                 .ctx;
         people.insert(data.profile.id.clone(), (state, phase, g, ctx));
     }
@@ -87,7 +89,7 @@ fn has_ungrouped_kcal(text: &str) -> bool {
 #[test]
 fn every_sample_participants_options_follow_the_rules() {
     let s = sample();
-    let t = Thresholds::from_plan(&s.plan);
+    let t = Thresholds::from_plan(&s.plan.report_scope());
     assert!(s.people.len() >= 40, "{} participants", s.people.len());
     let mut phases: BTreeMap<&str, usize> = BTreeMap::new();
     let mut offered = 0;
@@ -347,7 +349,7 @@ fn context_md_documents_exactly_the_followup_fields() {
             new: true,
         }],
     };
-    let ctx = context(&s.plan, std::slice::from_ref(&record));
+    let ctx = context(&s.plan.report_scope(), std::slice::from_ref(&record));
     assert_eq!(ctx.with_new, 1);
     assert_eq!(ctx.table.rows[0][2], "new");
     assert_eq!(ctx.table.rows[0][5], "1 Sep 2026 to 30 Sep 2026");

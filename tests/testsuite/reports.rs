@@ -96,28 +96,27 @@ fn contexts() -> &'static Contexts {
             panic!("not a run command")
         };
         let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
-        let plan = cohortpress::run::execute::plan_from_args(&args, today)
-            .unwrap_or_else(|(code, d)| panic!("plan: exit {code}: {d:?}"));
+        let options = cohortpress::cmd::run::run_options(&args);
+        let plan = cohortpress::run::plan::plan(&options, today)
+            .unwrap_or_else(|e| panic!("plan: {e}"));
+        let scope = plan.report_scope();
         let (dirs, _) = cohortpress::participant::discover(&plan.program);
         let templates = TemplateSet::load(&plan.program).expect("built-in templates load");
         let mut participants = BTreeMap::new();
         let mut rows = Vec::new();
-        let mut summary = cohortpress::run::execute::RunSummary {
-            participants: dirs.len(),
-            ..Default::default()
-        };
+        let mut participants_with_errors = 0;
         let mut snapshot_html = String::new();
         for dir in &dirs {
             let loaded = cohortpress::participant::load_participant(&plan.program, dir, plan.as_of);
             let Some(data) = loaded.data else {
-                summary.participants_with_errors += 1;
+                participants_with_errors += 1;
                 continue;
             };
             let results = plan
                 .modules
                 .run(&plan.program.info, plan.period, plan.as_of, &data);
             let report = cohortpress::report::participant_context(
-                &plan,
+                &scope,
                 &data,
                 &results,
                 &loaded.diagnostics,
@@ -140,7 +139,7 @@ fn contexts() -> &'static Contexts {
             confidence: 0.95,
         };
         let group = cohortpress::group::summarize(&rows, &opts);
-        let group = cohortpress::report::group_context(&plan, &group, &summary).ctx;
+        let group = cohortpress::report::group_context(&scope, &group, participants_with_errors).ctx;
         Contexts {
             participants,
             group,

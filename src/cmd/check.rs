@@ -1,0 +1,546 @@
+//! `cohortpress check`: prints what loading found ([`crate::check`]), as text for people or
+//! JSON Lines for scripts, and returns the exit code.
+
+use crate::check::{CheckReport, check_program, plural};
+use crate::diag::{self, Diagnostic, Severity};
+use crate::exit_code;
+use chrono::NaiveDate;
+use std::io::Write;
+use std::path::Path;
+
+/// The exit code a check report calls for (see [`exit_code::Outcome`]).
+pub fn exit_code_of(report: &CheckReport) -> i32 {
+    let left_out = report
+        .participants
+        .iter()
+        .filter(|p| p.diagnostics.iter().any(|d| d.severity == Severity::Error))
+        .count()
+        + report
+            .discovery
+            .iter()
+            .filter(|d| d.severity == Severity::Error)
+            .count();
+    let warnings = report
+        .all_diagnostics()
+        .filter(|d| d.severity == Severity::Warning)
+        .count();
+    exit_code::Outcome {
+        program_invalid: report.program_invalid(),
+        participants_left_out: left_out,
+        module_failures: 0,
+        warnings,
+    }
+    .exit_code()
+}
+
+/// How `check` prints.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct CheckOptions {
+    /// One JSON object per diagnostic (and per note) instead of text.
+    pub json: bool,
+    /// List clean participants and every diagnostic one by one.
+    pub verbose: bool,
+}
+
+/// Examples shown per kind in the summary.
+const EXAMPLES_PER_KIND: usize = 3;
+/// Kinds shown in the summary before "… more kinds" (so it fits a screen).
+const KINDS_SHOWN: usize = 12;
+/// Diagnostics of one kind shown in full per participant file before the rest are collapsed.
+const SHOWN_PER_FILE_KIND: usize = 2;
+
+/// What makes two diagnostics "the same kind": severity, the file name (not its folder), the
+/// column, and the message with quoted values and numbers blanked out.
+fn kind_of(d: &Diagnostic) -> (Severity, String) {
+    let file = d.file.rsplit('/').next().unwrap_or(&d.file);
+    let msg = d.message.split("; ").next().unwrap_or(&d.message);
+    let mut masked = String::with_capacity(msg.len());
+    let mut quoted = false;
+    for c in msg.chars() {
+        if c == '`' {
+            if !quoted {
+                masked.push_str("`…`");
+            }
+            quoted = !quoted;
+        } else if quoted {
+        } else if c.is_ascii_digit() {
+            if !masked.ends_with('#') {
+                masked.push('#');
+            }
+        } else if !(masked.ends_with('#') && (c == '.' || c == '-' || c == '–')) {
+            masked.push(c);
+        }
+    }
+    (d.severity, format!("{file}: {masked}"))
+}
+
+fn severity_word(s: Severity) -> &'static str {
+    match s {
+        Severity::Error => "error",
+        Severity::Warning => "warning",
+    }
+}
+
+/// Writes the human report: the totals and a summary by kind first (count, participants
+/// affected, first examples with file:line:column), then how files were read, then the details
+/// per participant with repeated causes collapsed (every diagnostic with `verbose`), then the
+/// totals again.
+pub fn write_report_with(
+    report: &CheckReport,
+    opts: &CheckOptions,
+    out: &mut dyn Write,
+) -> std::io::Result<()> {
+    if opts.json {
+        return write_json(report, out);
+    }
+    match &report.program {
+        Err(diags) => {
+            for d in diags {
+                writeln!(out, "{d}")?;
+            }
+            let (e, _) = diag::count(diags);
+            writeln!(
+                out,
+                "program.yaml is invalid ({e} error{}); nothing was checked further",
+                plural(e)
+            )?;
+            return Ok(());
+        }
+        Ok(p) => writeln!(out, "program {} ({}): ok", p.info.id, p.info.title)?,
+    }
+    writeln!(out, "{}", report.summary())?;
+
+    // Summary by kind.
+    struct Kind<'a> {
+        count: usize,
+        participants: std::collections::BTreeSet<&'a str>,
+        examples: Vec<&'a Diagnostic>,
+    }
+    let mut kinds: std::collections::BTreeMap<(Severity, String), Kind<'_>> =
+        std::collections::BTreeMap::new();
+    for d in report.all_diagnostics() {
+        let k = kinds.entry(kind_of(d)).or_insert(Kind {
+            count: 0,
+            participants: Default::default(),
+            examples: Vec::new(),
+        });
+        k.count += 1;
+        if let Some(p) = &d.participant {
+            k.participants.insert(p);
+        }
+        if k.examples.len() < EXAMPLES_PER_KIND {
+            k.examples.push(d);
+        }
+    }
+    if !kinds.is_empty() {
+        let mut list: Vec<_> = kinds.into_iter().collect();
+        // Errors first, then the most frequent.
+        list.sort_by(|a, b| {
+            (b.0.0, b.1.count)
+                .cmp(&(a.0.0, a.1.count))
+                .then(a.0.1.cmp(&b.0.1))
+        });
+        writeln!(out)?;
+        writeln!(out, "summary by kind ({} kinds):", list.len())?;
+        for ((sev, _), k) in list.iter().take(KINDS_SHOWN) {
+            let first = k.examples[0];
+            let who = match k.participants.len() {
+                0 => String::new(),
+                1 => ", 1 participant".to_string(),
+                n => format!(", {n} participants"),
+            };
+            writeln!(
+                out,
+                "  {} ×{}{who}: {}",
+                severity_word(*sev),
+                k.count,
+                first.message
+            )?;
+            let at: Vec<String> = k.examples.iter().map(|d| d.location()).collect();
+            let more = if k.count > at.len() { ", …" } else { "" };
+            writeln!(out, "      at {}{more}", at.join(", "))?;
+        }
+        if list.len() > KINDS_SHOWN {
+            let rest: usize = list[KINDS_SHOWN..].iter().map(|k| k.1.count).sum();
+            let more = list.len() - KINDS_SHOWN;
+            writeln!(
+                out,
+                "  … {more} more kind{} ({rest} diagnostic{}) in the details below",
+                plural(more),
+                plural(rest)
+            )?;
+        }
+    }
+
+    // How files were read, collapsed by what was said.
+    let mut notes: std::collections::BTreeMap<&str, Vec<&crate::participant::table::Note>> =
+        std::collections::BTreeMap::new();
+    for p in &report.participants {
+        for n in &p.notes {
+            notes.entry(n.message.as_str()).or_default().push(n);
+        }
+    }
+    if !notes.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "how files were read:")?;
+        let mut list: Vec<_> = notes.into_iter().collect();
+        list.sort_by(|a, b| b.1.len().cmp(&a.1.len()).then(a.0.cmp(b.0)));
+        let shown = if opts.verbose {
+            list.len()
+        } else {
+            KINDS_SHOWN
+        };
+        for (msg, ns) in list.iter().take(shown) {
+            if ns.len() == 1 {
+                writeln!(out, "  {}: {msg}", ns[0].file)?;
+            } else {
+                let people: std::collections::BTreeSet<&str> =
+                    ns.iter().map(|n| n.participant.as_str()).collect();
+                writeln!(
+                    out,
+                    "  {} files of {} participant{}, e.g. {}: {msg}",
+                    ns.len(),
+                    people.len(),
+                    plural(people.len()),
+                    ns[0].file
+                )?;
+            }
+        }
+        if list.len() > shown {
+            writeln!(
+                out,
+                "  … {} more (`check --verbose` lists them all)",
+                list.len() - shown
+            )?;
+        }
+    }
+
+    // Details.
+    if !report.discovery.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "participants folder:")?;
+        for d in &report.discovery {
+            writeln!(out, "{d}")?;
+        }
+    }
+    let mut clean = 0;
+    for p in &report.participants {
+        let (e, w) = diag::count(&p.diagnostics);
+        let status = if p.data.is_some() {
+            "usable"
+        } else {
+            "not usable"
+        };
+        if e + w == 0 && p.data.is_some() && !opts.verbose {
+            clean += 1;
+            continue;
+        }
+        let mut counts = Vec::new();
+        if e > 0 {
+            counts.push(format!("{e} error{}", plural(e)));
+        }
+        if w > 0 {
+            counts.push(format!("{w} warning{}", plural(w)));
+        }
+        let counts = if counts.is_empty() {
+            String::new()
+        } else {
+            format!(" ({})", counts.join(", "))
+        };
+        writeln!(out)?;
+        writeln!(out, "{}: {status}{counts}", p.id)?;
+        if opts.verbose {
+            for d in &p.diagnostics {
+                writeln!(out, "{d}")?;
+            }
+            for n in &p.notes {
+                writeln!(out, "note: {}: {}", n.file, n.message)?;
+            }
+            continue;
+        }
+        // Repeated causes in one file are collapsed after the first few.
+        let mut seen: std::collections::BTreeMap<(Severity, String, &str), Vec<&Diagnostic>> =
+            std::collections::BTreeMap::new();
+        let mut order = Vec::new();
+        for d in &p.diagnostics {
+            let (sev, k) = kind_of(d);
+            let key = (sev, k, d.file.as_str());
+            let list = seen.entry(key.clone()).or_default();
+            if list.is_empty() {
+                order.push(key);
+            }
+            list.push(d);
+        }
+        for key in &order {
+            let list = &seen[key];
+            for d in list.iter().take(SHOWN_PER_FILE_KIND) {
+                writeln!(out, "{d}")?;
+            }
+            if list.len() > SHOWN_PER_FILE_KIND {
+                let lines: Vec<String> = list[SHOWN_PER_FILE_KIND..]
+                    .iter()
+                    .take(10)
+                    .filter_map(|d| d.line.map(|l| l.to_string()))
+                    .collect();
+                let rest = list.len() - SHOWN_PER_FILE_KIND;
+                let etc = if rest > lines.len() { ", …" } else { "" };
+                writeln!(
+                    out,
+                    "  … and {rest} more like this in {} (line{} {}{etc})",
+                    key.2,
+                    if lines.len() == 1 { "" } else { "s" },
+                    lines.join(", ")
+                )?;
+            }
+        }
+    }
+    if clean > 0 {
+        writeln!(out)?;
+        writeln!(
+            out,
+            "{clean} participant{} with nothing to report (`check --verbose` lists them)",
+            plural(clean)
+        )?;
+    }
+    writeln!(out)?;
+    writeln!(out, "{}", report.summary())
+}
+
+/// One JSON object per line for each diagnostic (`severity` `error` or `warning`) and each
+/// note on how a file was read (`severity` `note`), in the order of the text report.
+fn write_json(report: &CheckReport, out: &mut dyn Write) -> std::io::Result<()> {
+    for d in report.all_diagnostics() {
+        serde_json::to_writer(&mut *out, d)?;
+        writeln!(out)?;
+    }
+    for p in &report.participants {
+        for n in &p.notes {
+            let v = serde_json::json!({
+                "severity": "note",
+                "participant": n.participant,
+                "file": n.file,
+                "message": n.message,
+            });
+            serde_json::to_writer(&mut *out, &v)?;
+            writeln!(out)?;
+        }
+    }
+    Ok(())
+}
+
+/// Writes the human report with the default options.
+pub fn write_report(report: &CheckReport, out: &mut dyn Write) -> std::io::Result<()> {
+    write_report_with(report, &CheckOptions::default(), out)
+}
+
+/// Runs the check on the program at `root` and prints the diagnostics to `out`; returns the
+/// exit code (see [`crate::exit_code`]).
+pub fn run_check(root: &Path, as_of: NaiveDate, out: &mut dyn Write) -> i32 {
+    run_check_with(root, as_of, &CheckOptions::default(), out)
+}
+
+/// [`run_check`] with output options.
+pub fn run_check_with(
+    root: &Path,
+    as_of: NaiveDate,
+    opts: &CheckOptions,
+    out: &mut dyn Write,
+) -> i32 {
+    let mut report = check_program(root, as_of);
+    // `report.out` is checked as `run` would check it (a foreign folder, the program folder,
+    // participants/…), so the same program gives the same exit code from both.
+    if let Ok(prog) = &report.program {
+        let target = crate::run::plan::output_target(
+            prog,
+            prog.root.join(&prog.def.report.out),
+            crate::output::OutputScope::Complete,
+            "report.out",
+        );
+        if let Err(crate::output::StagingError::Refused(m)) = target.check() {
+            report.program = Err(vec![Diagnostic::error("program.yaml", m)]);
+            report.participants.clear();
+            report.discovery.clear();
+        }
+    }
+    match write_report_with(&report, opts, out) {
+        Ok(()) => exit_code_of(&report),
+        Err(_) => exit_code::OUTPUT_FAILED,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::fs;
+
+    fn as_of() -> NaiveDate {
+        NaiveDate::from_ymd_opt(2026, 12, 1).unwrap()
+    }
+
+    fn program_dir() -> tempfile::TempDir {
+        let tmp = tempfile::tempdir().unwrap();
+        fs::write(
+            tmp.path().join("program.yaml"),
+            "format_version: 1\nprogram: { id: demo-2026, title: Demo, start: 2026-04-01, end: 2026-09-30 }\nmodules: [ {id: trend} ]\n",
+        )
+        .unwrap();
+        tmp
+    }
+
+    fn add(root: &Path, id: &str, files: &[(&str, &str)]) {
+        let dir = root.join("participants").join(id);
+        fs::create_dir_all(&dir).unwrap();
+        for (n, t) in files {
+            fs::write(dir.join(n), t).unwrap();
+        }
+    }
+
+    fn profile(id: &str) -> String {
+        format!("id: {id}\nsex: female\nage: 40\nheight: 165 cm\nenrolled: 2026-04-01\n")
+    }
+
+    fn run(root: &Path) -> (i32, String) {
+        let mut out = Vec::new();
+        let code = run_check(root, as_of(), &mut out);
+        (code, String::from_utf8(out).unwrap())
+    }
+
+    #[test]
+    fn clean_program_exits_zero() {
+        let tmp = program_dir();
+        add(tmp.path(), "P1", &[("profile.yaml", &profile("P1"))]);
+        add(
+            tmp.path(),
+            "P2",
+            &[
+                ("profile.yaml", &profile("P2")),
+                ("weights.csv", "date,weight,unit\n2026-04-02,80,kg\n"),
+            ],
+        );
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::SUCCESS, "{out}");
+        // Clean participants are counted, not listed, unless asked for.
+        assert!(!out.contains("P1: usable"), "{out}");
+        assert!(
+            out.contains("2 participants with nothing to report"),
+            "{out}"
+        );
+        let mut verbose = Vec::new();
+        let opts = CheckOptions {
+            json: false,
+            verbose: true,
+        };
+        run_check_with(tmp.path(), as_of(), &opts, &mut verbose);
+        assert!(String::from_utf8(verbose).unwrap().contains("P1: usable\n"));
+        assert!(
+            out.ends_with(
+                "checked 2 participants: 2 usable, 0 with errors; 0 errors, 0 warnings\n"
+            ),
+            "{out}"
+        );
+    }
+
+    #[test]
+    fn warnings_and_errors_set_the_exit_code() {
+        let tmp = program_dir();
+        add(
+            tmp.path(),
+            "P1",
+            &[
+                ("profile.yaml", &profile("P1")),
+                ("weights.csv", "date,weight,unit\n2027-04-02,80,kg\n"),
+            ],
+        );
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::WARNINGS, "{out}");
+        assert!(out.contains("P1: usable (1 warning)"), "{out}");
+        add(tmp.path(), "P0", &[("weights.csv", "date,weight,unit\n")]);
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::PARTICIPANT_ERRORS, "{out}");
+        assert!(out.contains("P0: not usable (1 error)"), "{out}");
+        // Participants are reported in folder order.
+        assert!(out.find("P0:").unwrap() < out.find("P1:").unwrap());
+        assert!(
+            out.contains("checked 2 participants: 1 usable, 1 with errors; 1 error, 1 warning"),
+            "{out}"
+        );
+        let report = check_program(tmp.path(), as_of());
+        assert_eq!(report.usable(), 1);
+        assert_eq!(report.counts(), (1, 1));
+    }
+
+    #[test]
+    fn the_summary_collapses_repeated_causes_and_json_has_one_object_per_diagnostic() {
+        let tmp = program_dir();
+        // 30 participants, each with the same two kinds of problem and a semicolon file.
+        for i in 0..30 {
+            let id = format!("P{i:02}");
+            add(
+                tmp.path(),
+                &id,
+                &[
+                    ("profile.yaml", &profile(&id)),
+                    (
+                        "weights.csv",
+                        "date;weight;unit\n2026-04-02;80,5;kg\n2026-04-03;x;kg\n2026-04-04;y;kg\n2026-04-05;z;kg\n",
+                    ),
+                    ("intake.csv", "2026-04-02,1800\n"),
+                ],
+            );
+        }
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::PARTICIPANT_ERRORS, "{out}");
+        let summary_at = out.find("summary by kind (2 kinds):").expect(&out);
+        let details_at = out.find("\nP00: usable").expect(&out);
+        assert!(summary_at < details_at, "{out}");
+        assert!(
+            out.contains("  error ×30, 30 participants: no header row: missing required columns `date`, `kcal`; the file is not used\n      at participants/P00/intake.csv:1, participants/P01/intake.csv:1, participants/P02/intake.csv:1, …\n"),
+            "{out}"
+        );
+        assert!(
+            out.contains("  warning ×90, 30 participants: not a number in `weight`"),
+            "{out}"
+        );
+        assert!(
+            out.contains("  30 files of 30 participants, e.g. participants/P00/weights.csv: read as semicolon-separated with decimal commas\n"),
+            "{out}"
+        );
+        // Within a participant the third like problem is collapsed.
+        assert!(
+            out.contains("  … and 1 more like this in participants/P00/weights.csv (line 5)"),
+            "{out}"
+        );
+        // The summary part fits a screen.
+        assert!(out[..details_at].lines().count() < 25, "{out}");
+
+        let mut json = Vec::new();
+        let opts = CheckOptions {
+            json: true,
+            verbose: false,
+        };
+        run_check_with(tmp.path(), as_of(), &opts, &mut json);
+        let lines: Vec<serde_json::Value> = String::from_utf8(json)
+            .unwrap()
+            .lines()
+            .map(|l| serde_json::from_str(l).unwrap())
+            .collect();
+        assert_eq!(lines.len(), 30 * 3 + 30 + 30);
+        let e = lines.iter().find(|v| v["severity"] == "error").unwrap();
+        assert_eq!(e["file"], "participants/P00/intake.csv");
+        assert_eq!(e["line"], 1);
+        assert_eq!(lines.iter().filter(|v| v["severity"] == "note").count(), 30);
+    }
+
+    #[test]
+    fn invalid_program_or_missing_folder_exits_three() {
+        let tmp = program_dir();
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::PROGRAM_INVALID, "{out}");
+        assert!(out.contains("participants folder does not exist"), "{out}");
+        fs::write(tmp.path().join("program.yaml"), "format_version: 1\n").unwrap();
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::PROGRAM_INVALID);
+        assert!(out.contains("missing field `program`"), "{out}");
+        assert!(out.contains("program.yaml is invalid"), "{out}");
+    }
+}

@@ -1,0 +1,165 @@
+//! `run`, `merge` and `modules`: the command line turned into plain options, the run's outcome
+//! into log lines and an exit code.
+
+use crate::cmd::cli::{FormatArg, MergeArgs, RunArgs};
+use crate::exit_code;
+use crate::modules;
+use crate::program::{self, Format};
+use crate::run::{self, Blame, MergeOptions, RunError, RunOptions, RunSummary};
+use chrono::NaiveDate;
+use std::path::Path;
+use std::time::Instant;
+
+/// The plain options of `run` (no clap types past this point).
+pub fn run_options(args: &RunArgs) -> RunOptions {
+    RunOptions {
+        program: args.program.clone(),
+        period: args.period.clone(),
+        from: args.from,
+        to: args.to,
+        as_of: args.as_of,
+        out: args.out.clone(),
+        only: args.only.clone(),
+        jobs: args.jobs,
+        formats: args
+            .formats
+            .iter()
+            .map(|f| match f {
+                FormatArg::Html => Format::Html,
+                FormatArg::Pdf => Format::Pdf,
+            })
+            .collect(),
+        incremental: args.incremental,
+        shard: args.shard,
+        group_readable: args.group_readable,
+        state: args.state.clone(),
+    }
+}
+
+/// The plain options of `merge`.
+pub fn merge_options(args: &MergeArgs) -> MergeOptions {
+    MergeOptions {
+        program: args.program.clone(),
+        shards: args.shards.clone(),
+        out: args.out.clone(),
+        group_readable: args.group_readable,
+        state: args.state.clone(),
+    }
+}
+
+/// The documented exit code of a finished run (see [`exit_code::Outcome`]).
+pub fn summary_code(s: &RunSummary) -> i32 {
+    exit_code::Outcome {
+        program_invalid: false,
+        participants_left_out: s.participants_with_errors + s.skipped_folders,
+        module_failures: s.module_failures,
+        warnings: s.warnings + s.program_warnings,
+    }
+    .exit_code()
+}
+
+/// The documented exit code of a run that could not complete.
+pub fn error_code(e: &RunError) -> i32 {
+    let blamed = |by: &Blame| match by {
+        Blame::CommandLine => exit_code::USAGE,
+        Blame::Program => exit_code::PROGRAM_INVALID,
+    };
+    match e {
+        RunError::Invalid { by, .. } | RunError::Refused { by, .. } => blamed(by),
+        RunError::Locked(_) => exit_code::LOCKED,
+        RunError::Output(_) | RunError::Render(_) => exit_code::OUTPUT_FAILED,
+    }
+}
+
+/// Reports why a run could not complete and returns its exit code. The problems of an invalid
+/// plan are printed one by one (to the log with `as_log`, as `merge` does).
+fn report_failure(e: &RunError, as_log: bool) -> i32 {
+    match e {
+        RunError::Invalid { diagnostics, .. } => {
+            for d in diagnostics {
+                if as_log {
+                    tracing::error!("{}", d.to_string().replace('\n', " |"));
+                } else {
+                    eprintln!("{d}");
+                }
+            }
+        }
+        other => tracing::error!("{other:#}"),
+    }
+    error_code(e)
+}
+
+/// `cohortpress run`.
+pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
+    let started = Instant::now();
+    let plan = match run::plan::plan(&run_options(args), today) {
+        Ok(p) => p,
+        Err(e) => return report_failure(&e, false),
+    };
+    let plan_s = started.elapsed().as_secs_f64();
+    match run::execute::execute(&plan) {
+        Ok((summary, timing)) => {
+            let ms = |s: f64| (s * 1000.0).round() / 1000.0;
+            tracing::info!(
+                plan_s = ms(plan_s),
+                participants_s = ms(timing.participants_s),
+                group_s = ms(timing.group_s),
+                tidy_s = ms(timing.tidy_s),
+                commit_s = ms(timing.commit_s),
+                "timing in seconds per phase"
+            );
+            tracing::info!(
+                "done in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
+                started.elapsed().as_secs_f64(),
+                summary.reported,
+                summary.participants_with_errors + summary.skipped_folders,
+                summary.module_failures,
+                summary.warnings,
+                plan.out_dir.display()
+            );
+            summary_code(&summary)
+        }
+        Err(e) => report_failure(&e, true),
+    }
+}
+
+/// `cohortpress modules [PROGRAM]`.
+pub fn modules_command(program: Option<&Path>) -> i32 {
+    let loaded = match program {
+        Some(root) => match program::load_program(root) {
+            Ok(p) => Some(p),
+            Err(diags) => {
+                for d in &diags {
+                    eprintln!("{d}");
+                }
+                return exit_code::PROGRAM_INVALID;
+            }
+        },
+        None => None,
+    };
+    print!("{}", modules::describe_modules(loaded.as_ref()));
+    exit_code::SUCCESS
+}
+
+
+/// `cohortpress merge PROGRAM SHARD_DIR… [--out DIR]`.
+pub fn merge_command(args: &MergeArgs) -> i32 {
+    let started = Instant::now();
+    let opts = merge_options(args);
+    match run::shard::merge_shards(&opts) {
+        Ok((summary, shards, plan)) => {
+            tracing::info!(
+                "merged {} shards in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
+                shards,
+                started.elapsed().as_secs_f64(),
+                summary.reported,
+                summary.participants_with_errors + summary.skipped_folders,
+                summary.module_failures,
+                summary.warnings,
+                plan.display()
+            );
+            summary_code(&summary)
+        }
+        Err(e) => report_failure(&e, true),
+    }
+}

@@ -1,0 +1,443 @@
+//! The run plan: everything a run needs, resolved from plain options (the command line's, once
+//! [`crate::cmd`] has converted them) and `program.yaml`.
+
+use super::shard::{self, ShardSpec};
+use super::{Blame, RunError};
+use crate::diag::Diagnostic;
+use crate::group;
+use crate::modules::{self, ModuleSet};
+use crate::output::{Access, OutputScope, OutputTarget, Staging, StagingError};
+use crate::program::{self, DefaultPeriod, Format, Program};
+use crate::report::Scope;
+use crate::run::partial::RunKey;
+use chrono::{Datelike, NaiveDate};
+use cohortpress_metric_api::Period;
+use std::path::{Path, PathBuf};
+
+/// How `run` was asked to run, free of any command-line library.
+#[derive(Debug, Clone, Default)]
+pub struct RunOptions {
+    /// The program folder.
+    pub program: PathBuf,
+    /// Reporting month `YYYY-MM`.
+    pub period: Option<String>,
+    /// First day of a custom period (with `to`).
+    pub from: Option<NaiveDate>,
+    /// Last day of a custom period (with `from`).
+    pub to: Option<NaiveDate>,
+    /// The day treated as today (default: the caller's today).
+    pub as_of: Option<NaiveDate>,
+    /// Output folder (default: `report.out`).
+    pub out: Option<PathBuf>,
+    /// Only these participant ids.
+    pub only: Vec<String>,
+    /// Worker threads (default: number of cores).
+    pub jobs: Option<usize>,
+    /// Formats (default: `report.formats`).
+    pub formats: Vec<Format>,
+    /// Reuse unchanged participants' previous results.
+    pub incremental: bool,
+    /// Process only this shard.
+    pub shard: Option<ShardSpec>,
+    /// Outputs readable by the owner's group.
+    pub group_readable: bool,
+    /// State folder of the group-report ledger.
+    pub state: Option<PathBuf>,
+}
+
+/// How `merge` was asked to run.
+#[derive(Debug, Clone, Default)]
+pub struct MergeOptions {
+    /// The program folder the shards were run on.
+    pub program: PathBuf,
+    /// The shards' output folders.
+    pub shards: Vec<PathBuf>,
+    /// Output folder (default: `report.out`).
+    pub out: Option<PathBuf>,
+    /// Outputs readable by the owner's group.
+    pub group_readable: bool,
+    /// State folder of the group-report ledger.
+    pub state: Option<PathBuf>,
+}
+
+/// Everything a run needs, resolved from the command line and `program.yaml`.
+pub struct RunPlan {
+    /// The checked program.
+    pub program: Program,
+    /// Its modules, settings resolved.
+    pub modules: ModuleSet,
+    /// The reporting period.
+    pub period: Period,
+    /// The day treated as today.
+    pub as_of: NaiveDate,
+    /// The output folder.
+    pub out_dir: PathBuf,
+    /// How the output folder was named (`--out` or `report.out`), for refusals.
+    pub out_named_by: &'static str,
+    /// Formats to write.
+    pub formats: Vec<Format>,
+    /// Only these participant ids (empty = all).
+    pub only: Vec<String>,
+    /// Worker threads.
+    pub jobs: usize,
+    /// Reuse unchanged participants' previous results (`--incremental`).
+    pub incremental: bool,
+    /// Process only this shard (`--shard K/N`).
+    pub shard: Option<ShardSpec>,
+    /// Who may read the outputs.
+    pub access: Access,
+    /// What the results depend on besides each participant's own files.
+    pub key: RunKey,
+    /// State folder of the group-report ledger (`--state`, default `<out>.ledger`).
+    pub state_dir: PathBuf,
+}
+
+impl RunPlan {
+    /// What this run puts in its output folder.
+    pub fn scope(&self) -> OutputScope {
+        if self.shard.is_some() {
+            OutputScope::Shard
+        } else if !self.only.is_empty() {
+            OutputScope::Only
+        } else {
+            OutputScope::Complete
+        }
+    }
+
+    /// The output folder with what it must never touch.
+    pub fn output_target(&self) -> OutputTarget {
+        output_target(
+            &self.program,
+            self.out_dir.clone(),
+            self.scope(),
+            self.out_named_by,
+        )
+    }
+
+    /// Takes the output folder for this run (see [`Staging::begin`]). A refusal names the
+    /// folder and who named it: the command line or program.yaml.
+    pub fn begin_staging(&self) -> Result<Staging, RunError> {
+        Staging::begin(&self.output_target(), self.access).map_err(|e| match e {
+            StagingError::Refused(m) => RunError::Refused {
+                message: m,
+                by: if self.out_named_by == "--out" {
+                    Blame::CommandLine
+                } else {
+                    Blame::Program
+                },
+            },
+            other => other.into(),
+        })
+    }
+
+    /// What the reports see of this run.
+    pub fn report_scope(&self) -> Scope<'_> {
+        Scope {
+            program: &self.program,
+            modules: &self.modules,
+            period: self.period,
+            as_of: self.as_of,
+        }
+    }
+}
+
+
+/// The output folder `dir` of `program` with what it must never touch: the program folder and
+/// its templates.
+pub fn output_target(
+    program: &Program,
+    dir: PathBuf,
+    scope: OutputScope,
+    named_by: &'static str,
+) -> OutputTarget {
+    OutputTarget {
+        dir,
+        program_root: program.root.clone(),
+        templates: program
+            .def
+            .report
+            .templates
+            .as_ref()
+            .map(|t| program.root.join(t)),
+        scope,
+        named_by,
+    }
+}
+
+type PlanError = RunError;
+
+fn usage(message: String) -> PlanError {
+    RunError::Invalid {
+        by: Blame::CommandLine,
+        diagnostics: vec![Diagnostic::error("command line", message)],
+    }
+}
+
+fn invalid(diagnostics: Vec<Diagnostic>) -> PlanError {
+    RunError::Invalid {
+        by: Blame::Program,
+        diagnostics,
+    }
+}
+
+/// Loads and checks the program (refusing an oversized `program.yaml` before reading it) and
+/// its modules.
+fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
+    let file = root.join(program::load::PROGRAM_FILE);
+    if let Err(m) = crate::limits::check_size(&file) {
+        return Err(invalid(vec![Diagnostic::error(
+            program::load::PROGRAM_FILE,
+            m,
+        )]));
+    }
+    let program = program::load_program(root).map_err(invalid)?;
+    let (modules, warnings) =
+        modules::build_module_set(&program).map_err(invalid)?;
+    for w in &warnings {
+        tracing::warn!("{w}");
+    }
+    Ok((program, modules))
+}
+
+/// Resolves the plan: loads and checks the program and its modules, the period and the output
+/// folder.
+pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
+    let (program, modules) = load_checked(&args.program)?;
+    let as_of = args.as_of.unwrap_or(today);
+    let period = resolve_period(&program, as_of, args).map_err(usage)?;
+    let (mut out_dir, out_named_by) = match &args.out {
+        Some(o) => (o.clone(), "--out"),
+        None => (program.root.join(&program.def.report.out), "report.out"),
+    };
+    if let (Some(s), None) = (args.shard, &args.out) {
+        out_dir = shard::default_shard_out(&out_dir, s);
+    }
+    let formats = if args.formats.is_empty() {
+        let mut f = program.def.report.formats.clone();
+        f.sort();
+        f.dedup();
+        f
+    } else {
+        let mut f = args.formats.clone();
+        f.sort();
+        f.dedup();
+        f
+    };
+    let jobs = args.jobs.unwrap_or_else(|| {
+        std::thread::available_parallelism()
+            .map(|n| n.get())
+            .unwrap_or(1)
+    });
+    if jobs == 0 {
+        return Err(usage("--jobs must be at least 1".into()));
+    }
+    let key = run_key(&program, &modules, period, as_of, &formats)?;
+    let state_dir = args
+        .state
+        .clone()
+        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
+    Ok(RunPlan {
+        program,
+        modules,
+        period,
+        as_of,
+        out_dir,
+        out_named_by,
+        formats,
+        only: args.only.clone(),
+        jobs,
+        incremental: args.incremental,
+        shard: args.shard,
+        access: access(args.group_readable),
+        key,
+        state_dir,
+    })
+}
+
+/// The plan of `merge`: the program from the command line; period, as-of date and formats from
+/// the shards' run key (the caller checks the recomputed key equals the shards').
+pub fn plan_for_merge(
+    args: &MergeOptions,
+    key: &RunKey,
+    only: Vec<String>,
+) -> Result<RunPlan, PlanError> {
+    let (program, modules) = load_checked(&args.program)?;
+    let date = |s: &str| {
+        s.parse::<NaiveDate>()
+            .map_err(|_| usage(format!("shard.json holds an unreadable date `{s}`")))
+    };
+    let period = Period {
+        from: date(&key.period_from)?,
+        to: date(&key.period_to)?,
+    };
+    let as_of = date(&key.as_of)?;
+    let mut formats = Vec::new();
+    for f in &key.formats {
+        formats.push(match f.as_str() {
+            "html" => Format::Html,
+            "pdf" => Format::Pdf,
+            other => {
+                return Err(usage(format!(
+                    "shard.json names an unknown format `{other}`"
+                )));
+            }
+        });
+    }
+    let (out_dir, out_named_by) = match &args.out {
+        Some(o) => (o.clone(), "--out"),
+        None => (program.root.join(&program.def.report.out), "report.out"),
+    };
+    let key = run_key(&program, &modules, period, as_of, &formats)?;
+    let state_dir = args
+        .state
+        .clone()
+        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
+    Ok(RunPlan {
+        program,
+        modules,
+        period,
+        as_of,
+        out_dir,
+        out_named_by,
+        formats,
+        only,
+        jobs: 1,
+        incremental: false,
+        shard: None,
+        access: access(args.group_readable),
+        key,
+        state_dir,
+    })
+}
+
+fn format_name(f: &Format) -> String {
+    format!("{f:?}").to_lowercase()
+}
+
+/// The run key: hashes of `program.yaml` and the template folder, the modules' settings,
+/// period, as-of date, formats and tool version.
+pub fn run_key(
+    program: &Program,
+    modules: &ModuleSet,
+    period: Period,
+    as_of: NaiveDate,
+    formats: &[Format],
+) -> Result<RunKey, PlanError> {
+    let read = |p: &Path| {
+        crate::limits::read_input(p).map_err(|e| {
+            invalid(vec![Diagnostic::error(
+                p.display().to_string(),
+                format!("cannot read ({e})"),
+            )])
+        })
+    };
+    let program_yaml = blake3::hash(&read(&program.root.join(program::load::PROGRAM_FILE))?)
+        .to_hex()
+        .to_string();
+    let templates = match &program.def.report.templates {
+        None => "built-in".to_string(),
+        Some(t) => {
+            let dir = program.root.join(t);
+            let mut h = blake3::Hasher::new();
+            for entry in walkdir::WalkDir::new(&dir).sort_by_file_name() {
+                let Ok(entry) = entry else { continue };
+                if entry.file_type().is_file() {
+                    let rel = entry.path().strip_prefix(&dir).unwrap_or(entry.path());
+                    h.update(rel.to_string_lossy().as_bytes());
+                    h.update(&[0]);
+                    h.update(blake3::hash(&read(entry.path())?).as_bytes());
+                }
+            }
+            h.finalize().to_hex().to_string()
+        }
+    };
+    Ok(RunKey {
+        tool: format!("cohortpress {}", env!("CARGO_PKG_VERSION")),
+        program_yaml,
+        templates,
+        modules: modules.settings_fingerprint(),
+        period_from: period.from.to_string(),
+        period_to: period.to.to_string(),
+        as_of: as_of.to_string(),
+        formats: formats.iter().map(format_name).collect(),
+    })
+}
+
+/// The reporting period: `--period YYYY-MM`, `--from/--to`, or program.yaml's rule, clipped to
+/// the program's dates.
+pub fn resolve_period(
+    program: &Program,
+    as_of: NaiveDate,
+    args: &RunOptions,
+) -> Result<Period, String> {
+    let (start, end) = (program.info.start, program.info.end);
+    let raw = if let Some(p) = &args.period {
+        month_period(p)
+            .ok_or_else(|| format!("--period: expected a month like 2026-09, found `{p}`"))?
+    } else if let (Some(from), Some(to)) = (args.from, args.to) {
+        if from > to {
+            return Err(format!("--from {from} is after --to {to}"));
+        }
+        Period { from, to }
+    } else {
+        match program.def.report.period {
+            DefaultPeriod::ProgramToDate => Period {
+                from: start,
+                to: as_of.min(end),
+            },
+            DefaultPeriod::LastFullMonth => {
+                let first_of_this = as_of.with_day(1).expect("day 1 exists");
+                let last_month_end = first_of_this.pred_opt().expect("date in range");
+                let candidate = last_month_end.with_day(1).expect("day 1 exists");
+                if candidate > end {
+                    // The program is over: report its last month.
+                    let m = end.with_day(1).expect("day 1 exists");
+                    Period { from: m, to: end }
+                } else {
+                    Period {
+                        from: candidate,
+                        to: last_month_end,
+                    }
+                }
+            }
+        }
+    };
+    let from = raw.from.max(start);
+    let to = raw.to.min(end);
+    if from > to {
+        return Err(format!(
+            "the period {} to {} lies outside the program ({start} to {end})",
+            raw.from, raw.to
+        ));
+    }
+    if from > as_of {
+        return Err(format!(
+            "the period starts {from}, after the as-of date {as_of}"
+        ));
+    }
+    Ok(Period { from, to })
+}
+
+fn month_period(s: &str) -> Option<Period> {
+    let (y, m) = s.split_once('-')?;
+    let from = NaiveDate::from_ymd_opt(y.parse().ok()?, m.parse().ok()?, 1)?;
+    let next = if from.month() == 12 {
+        NaiveDate::from_ymd_opt(from.year() + 1, 1, 1)?
+    } else {
+        NaiveDate::from_ymd_opt(from.year(), from.month() + 1, 1)?
+    };
+    Some(Period {
+        from,
+        to: next.pred_opt()?,
+    })
+}
+
+
+/// Who may read the outputs.
+pub fn access(group_readable: bool) -> Access {
+    if group_readable {
+        Access::Group
+    } else {
+        Access::Owner
+    }
+}
