@@ -305,13 +305,9 @@ pub fn by_compendium_or_code(code: &str) -> Option<&'static ActivityDef> {
         .or_else(|| lookup(code))
 }
 
-/// Every activity in the table, sorted by code.
-pub fn all() -> &'static [ActivityDef] {
-    TABLE
-}
-
-/// A handful of common codes, for hints in messages.
-pub fn common_codes() -> &'static [&'static str] {
+/// A handful of common codes (the tests check each is in the table).
+#[cfg(test)]
+fn common_codes() -> &'static [&'static str] {
     &[
         "walking_3mph",
         "walking_brisk_3_5mph",

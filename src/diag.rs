@@ -214,8 +214,8 @@ pub fn cap_per_kind(diags: &mut Vec<Diagnostic>, from: usize) {
         (d.severity, d.field.clone(), shape)
     };
     // Per kind: how many seen, and the index of its summary in `summaries` once there is one.
-    let mut seen: HashMap<(Severity, Option<String>, String), (usize, Option<usize>)> =
-        HashMap::new();
+    type Kind = (Severity, Option<String>, String);
+    let mut seen: HashMap<Kind, (usize, Option<usize>)> = HashMap::new();
     let tail: Vec<Diagnostic> = diags.drain(from..).collect();
     // (index in `diags` of the summary, how many it stands for).
     let mut summaries: Vec<(usize, usize)> = Vec::new();

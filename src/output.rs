@@ -109,6 +109,8 @@ pub struct OutputTarget {
     /// The program folder: neither it, nor a folder containing it, nor anything inside its
     /// `participants/` may be an output folder.
     pub program_root: PathBuf,
+    /// The name of the participants folder inside the program folder (`participants`).
+    pub participants_dir: &'static str,
     /// The program's own templates folder (`report.templates`), also an input.
     pub templates: Option<PathBuf>,
     /// What the run writes.
@@ -318,7 +320,7 @@ fn resolve_output(dir: &Path, named_by: &str) -> Result<PathBuf, StagingError> {
 /// Refuses an output folder that is, contains, or lies inside the program's inputs.
 fn check_not_inputs(out: &Path, target: &OutputTarget) -> Result<(), StagingError> {
     let program = fs::canonicalize(&target.program_root).map_err(io(&target.program_root))?;
-    let participants = program.join(crate::participant::PARTICIPANTS_DIR);
+    let participants = program.join(target.participants_dir);
     // participants/ may be a link (to a share): its real folder is just as much an input, and
     // so is the templates folder.
     let resolved = |p: &Path| fs::canonicalize(p).ok().filter(|r| r != p);

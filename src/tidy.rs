@@ -240,10 +240,8 @@ pub fn render(
     let mut first = true;
     // Parsed a chunk at a time in parallel, written in id order.
     for chunk in ids.chunks(256) {
-        let parsed: Vec<Result<Option<TidyParticipant>, String>> = chunk
-            .par_iter()
-            .map(|id| load(id))
-            .collect();
+        let parsed: Vec<Result<Option<TidyParticipant>, String>> =
+            chunk.par_iter().map(|id| load(id)).collect();
         for r in parsed {
             let Some(r) = r? else { continue };
             let mut rec = vec![r.participant_id.clone(), from.clone(), to.clone()];

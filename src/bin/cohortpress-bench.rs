@@ -197,6 +197,7 @@ fn main() {
 }
 
 /// Every measurement for one program size, as a Markdown section.
+// Each argument is one independent setting of the benchmark run; a struct would only rename them.
 #[allow(clippy::too_many_arguments)]
 fn bench_size(
     n: usize,

@@ -141,7 +141,6 @@ pub fn modules_command(program: Option<&Path>) -> i32 {
     exit_code::SUCCESS
 }
 
-
 /// `cohortpress merge PROGRAM SHARD_DIR… [--out DIR]`.
 pub fn merge_command(args: &MergeArgs) -> i32 {
     let started = Instant::now();

@@ -207,7 +207,10 @@ fn binomial(n: usize, k: usize) -> u64 {
 /// Small-support vectors of the row space of one component, smallest first: `(people,
 /// vector over classes)`. `Err(v)` when the work cap was hit (v: the smallest basis vector of
 /// `K`, to be treated as a leak).
-fn small_vectors(cl: &Classes, min: usize) -> Result<Vec<(usize, Vec<i128>)>, Option<Vec<i128>>> {
+/// `(people, vector over classes)`.
+type SupportVector = (usize, Vec<i128>);
+
+fn small_vectors(cl: &Classes, min: usize) -> Result<Vec<SupportVector>, Option<Vec<i128>>> {
     let ncls = cl.people.len();
     let small: Vec<bool> = cl.people.iter().map(|p| p.len() < min).collect();
     if !small.iter().any(|&s| s) {

@@ -959,7 +959,9 @@ pub(super) fn build(
                 priority: 0,
             });
         }
-        let mut owners: Vec<(*const Draft, Line, String, Vec<(u64, u64)>)> = Vec::new();
+        // (section, line, label, its (token, atom) changes)
+        type Owner = (*const Draft, Line, String, Vec<(u64, u64)>);
+        let mut owners: Vec<Owner> = Vec::new();
         for d in drafts_of() {
             let raw = d.raw.as_ref().expect("filtered");
             let shown = |k: Kind| !table.is_suppressed(d.cells[&k]);
@@ -970,7 +972,8 @@ pub(super) fn build(
                 .zip(raw.comp_pct.iter().zip(&raw.comp_kg))
                 .map(|(&i, (&p, &k))| (tokens[i], atom(tokens[i], "change", p, k)))
                 .collect();
-            let mut lines: Vec<(Line, u32, Vec<(u64, u64)>)> = Vec::new();
+            type Changes = Vec<(u64, u64)>;
+            let mut lines: Vec<(Line, u32, Changes)> = Vec::new();
             if shown(Kind::Started) {
                 lines.push((Line::Bocf, 6 + base, changes.clone()));
                 let mut locf = changes.clone();

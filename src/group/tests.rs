@@ -363,7 +363,8 @@ fn assert_no_recovery(report: &Value, truth: &Value) {
     let truth_sections: HashMap<String, Value> = shown_sections(truth).into_iter().collect();
     // Global cells: (section id, name) → (hidden, true value).
     let mut cells: BTreeMap<(String, String), (bool, u64)> = BTreeMap::new();
-    let mut relations: Vec<((String, String), Vec<(String, String)>)> = Vec::new();
+    type Cell = (String, String);
+    let mut relations: Vec<(Cell, Vec<Cell>)> = Vec::new();
     for (id, stats) in &sections {
         let t = section_cells(&truth_sections[id]);
         for (name, v) in section_cells(stats) {

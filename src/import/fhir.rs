@@ -454,7 +454,11 @@ pub enum ImportFailure {
 /// `cohortpress import fhir FILE… --out PROGRAM [--ids MAP.csv]`: writes one participant
 /// folder per patient under `PROGRAM/participants/` and returns a summary; `Err((why, message))`
 /// when nothing was written.
-pub fn import(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> Result<String, (ImportFailure, String)> {
+pub fn import(
+    files: &[PathBuf],
+    out: &Path,
+    ids: Option<&Path>,
+) -> Result<String, (ImportFailure, String)> {
     let usage = |m: String| (ImportFailure::Usage, m);
     let map = ids.map(read_id_map).transpose().map_err(usage)?;
     let mut imp = Imported::default();

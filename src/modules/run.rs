@@ -36,11 +36,6 @@ impl ModuleResults {
     pub fn output(&self, id: &str) -> Option<&ModuleOutput> {
         self.outputs.iter().find(|(m, _)| m == id).map(|(_, o)| o)
     }
-
-    /// The failure of module `id`, when it failed.
-    pub fn failure(&self, id: &str) -> Option<&ModuleFailure> {
-        self.failures.iter().find(|f| f.module == id)
-    }
 }
 
 impl ModuleSet {

@@ -455,7 +455,15 @@ pub fn read_table(
         None => (sniff_delimiter(text).unwrap_or(b','), true),
     };
     with_reader(delimiter, text, |reader| {
-        read_records(reader, text, spec, opts, delimiter, sniffed, ctx, diags)
+        let file = FileRead {
+            text,
+            spec,
+            opts,
+            delimiter,
+            sniffed,
+            ctx,
+        };
+        read_records(reader, &file, diags)
     })
 }
 
@@ -506,16 +514,30 @@ fn with_reader<T>(delimiter: u8, text: &str, f: impl FnOnce(&mut BufferReader) -
     out
 }
 
-fn read_records(
-    reader: &mut BufferReader,
-    text: &str,
-    spec: &FileSpec,
-    opts: &CsvOptions,
+/// One file being read: its text, what it should hold, how it is read and where problems go.
+struct FileRead<'a> {
+    text: &'a str,
+    spec: &'a FileSpec,
+    opts: &'a CsvOptions,
+    /// The field delimiter, set in program.yaml or recognised (`sniffed`).
     delimiter: u8,
     sniffed: bool,
-    ctx: &FileCtx,
+    ctx: &'a FileCtx,
+}
+
+fn read_records(
+    reader: &mut BufferReader,
+    file: &FileRead<'_>,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Table> {
+    let FileRead {
+        text,
+        spec,
+        opts,
+        delimiter,
+        sniffed,
+        ctx,
+    } = *file;
     let delim_text = if delimiter == b'\t' {
         "\t".to_string()
     } else {

@@ -72,7 +72,6 @@ pub enum SpanKind {
     Plateau,
     Regain,
     Forecast,
-    Highlight,
 }
 
 /// A horizontal reference line across the whole chart.
@@ -181,7 +180,6 @@ fn span_fill(kind: SpanKind) -> RGBAColor {
         SpanKind::Plateau => OI_YELLOW.mix(0.30),
         SpanKind::Regain => OI_VERMILLION.mix(0.13),
         SpanKind::Forecast => RGBColor(0x80, 0x80, 0x80).mix(0.12),
-        SpanKind::Highlight => OI_SKY.mix(0.18),
     }
 }
 

@@ -10,9 +10,3 @@ mod font;
 pub mod pdf;
 mod plotters_pdf;
 mod tagged;
-
-pub use chart::{
-    BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
-    to_svg, to_svg_narrow,
-};
-pub use pdf::{Block, Document, PdfError, Tone, render_pdf};

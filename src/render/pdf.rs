@@ -75,6 +75,8 @@ pub enum Block {
         text: String,
     },
     /// Start a new page (ignored at the top of a page).
+    // Laid out and tested here (pagination tests); no report asks for one yet.
+    #[allow(dead_code)]
     PageBreak,
 }
 

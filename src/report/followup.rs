@@ -10,12 +10,12 @@
 //! reported one (same length, ending the day before it starts), from the same inputs. That
 //! keeps re-runs byte-identical and needs no earlier output.
 
+use super::Scope;
 use super::format as fmt;
 use super::templates::TemplateSet;
 use super::{ProgramView, RenderError, TableView};
 use crate::modules::ModuleResults;
 use crate::program::Format;
-use super::Scope;
 use chrono::{Datelike, Months, NaiveDate};
 use cohortpress_metric_api::{FlagSeverity, ParticipantData, Period};
 use serde::{Deserialize, Serialize};

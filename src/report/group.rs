@@ -3,6 +3,7 @@
 //! ("1–10", "at least 79 %"), or as "not shown (small numbers)" with the reason in the
 //! section's notes; figures that cannot be computed print as "–". No names, no ids.
 
+use super::Scope;
 use super::format as fmt;
 use super::{ChartView, Kv, ProgramView, TableView, cautions};
 use crate::group::shown::{Interval, Shown};
@@ -10,7 +11,6 @@ use crate::group::{ChangeLine, GroupReport, Section, SectionStats};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle,
 };
-use super::Scope;
 use serde::Serialize;
 
 /// What the group templates see (documented in `report-templates/CONTEXT.md`).

@@ -31,9 +31,9 @@
 //! energy balance), offered only when it clears the floor at the lower bound of the implied
 //! intake.
 
+use super::Scope;
 use super::format as fmt;
 use crate::modules::ModuleResults;
-use super::Scope;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{
     Cell, FlagSeverity, ModuleOutput, ParticipantData, Sex, Table, UnitSystem,

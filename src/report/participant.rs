@@ -1,6 +1,7 @@
 //! The participant report model: everything the participant templates and the PDF layout show,
 //! built once from the module outputs so both formats print the same figures.
 
+use super::Scope;
 use super::format as fmt;
 use super::guidance::{self, GuidanceView};
 use super::{ChartView, Kv, TableView, cautions};
@@ -9,7 +10,6 @@ use crate::modules::ModuleResults;
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
 };
-use super::Scope;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{
     Cell, FlagSeverity, ModuleOutput, ParticipantData, Table, UnitSystem,

@@ -202,10 +202,11 @@ fn check_partial_cycles(files: &[(String, String, String)]) -> Result<(), Templa
                 == Some(name)
         })
     };
+    type Entry = (String, String, String);
     fn visit<'a>(
         name: &str,
         stack: &mut Vec<String>,
-        partial: &dyn Fn(&str) -> Option<&'a (String, String, String)>,
+        partial: &dyn Fn(&str) -> Option<&'a Entry>,
         includes: &dyn Fn(&str) -> Vec<String>,
     ) -> Result<(), TemplateError> {
         if stack.iter().any(|s| s == name) {

@@ -312,7 +312,11 @@ pub fn finish(
     let headline = report::group::headline(&group, &format!("{period_from} to {period_to}"));
     group.releases = ledger.earlier_headlines(&program_id, &period_to);
     group.releases.push(headline.clone());
-    let group_ctx = report::group_context(&plan.report_scope(), &group, summary.participants_with_errors);
+    let group_ctx = report::group_context(
+        &plan.report_scope(),
+        &group,
+        summary.participants_with_errors,
+    );
     let group_files = report::render_group(templates, &group_ctx, &plan.formats)
         .map_err(|e| RunError::Render(e.to_string()))?;
     for (name, bytes) in group_files {
@@ -455,7 +459,8 @@ fn process_participant(
             .iter()
             .map(|f| (f.module.clone(), f.message.clone()))
             .collect();
-        let ctx = report::participant_context(&plan.report_scope(), &data, &results, &loaded.diagnostics);
+        let ctx =
+            report::participant_context(&plan.report_scope(), &data, &results, &loaded.diagnostics);
         let files = report::render_participant(templates, &ctx, &plan.formats)
             .map_err(|e| RunError::Render(format!("participant {}: {e}", data.profile.id)))?;
         // Each report is written and dropped at once: no report bytes outlive this loop.

@@ -141,7 +141,6 @@ impl RunPlan {
     }
 }
 
-
 /// The output folder `dir` of `program` with what it must never touch: the program folder and
 /// its templates.
 pub fn output_target(
@@ -153,6 +152,7 @@ pub fn output_target(
     OutputTarget {
         dir,
         program_root: program.root.clone(),
+        participants_dir: crate::participant::PARTICIPANTS_DIR,
         templates: program
             .def
             .report
@@ -191,8 +191,7 @@ fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
         )]));
     }
     let program = program::load_program(root).map_err(invalid)?;
-    let (modules, warnings) =
-        modules::build_module_set(&program).map_err(invalid)?;
+    let (modules, warnings) = modules::build_module_set(&program).map_err(invalid)?;
     for w in &warnings {
         tracing::warn!("{w}");
     }
@@ -431,7 +430,6 @@ fn month_period(s: &str) -> Option<Period> {
         to: next.pred_opt()?,
     })
 }
-
 
 /// Who may read the outputs.
 pub fn access(group_readable: bool) -> Access {

@@ -210,11 +210,7 @@ pub fn merge_shards(opts: &MergeOptions) -> Result<(RunSummary, usize, PathBuf),
     Ok((summary, shards.len(), plan.out_dir))
 }
 
-fn merge(
-    plan: &RunPlan,
-    dirs: &[PathBuf],
-    shards: &[ShardFile],
-) -> Result<RunSummary, RunError> {
+fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSummary, RunError> {
     let staging = plan.begin_staging()?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();

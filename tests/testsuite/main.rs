@@ -9,6 +9,7 @@ mod fhir;
 mod guidance;
 mod harness;
 mod hostile;
+mod layering;
 mod operation;
 mod reports;
 mod sample_program;

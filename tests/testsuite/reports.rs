@@ -97,8 +97,8 @@ fn contexts() -> &'static Contexts {
         };
         let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
         let options = cohortpress::cmd::run::run_options(&args);
-        let plan = cohortpress::run::plan::plan(&options, today)
-            .unwrap_or_else(|e| panic!("plan: {e}"));
+        let plan =
+            cohortpress::run::plan::plan(&options, today).unwrap_or_else(|e| panic!("plan: {e}"));
         let scope = plan.report_scope();
         let (dirs, _) = cohortpress::participant::discover(&plan.program);
         let templates = TemplateSet::load(&plan.program).expect("built-in templates load");
@@ -130,7 +130,9 @@ fn contexts() -> &'static Contexts {
                 .expect("renders");
                 snapshot_html = String::from_utf8(files[0].1.clone()).unwrap();
             }
-            rows.push(cohortpress::run::execute::summary_row(&plan, &data, &results));
+            rows.push(cohortpress::run::execute::summary_row(
+                &plan, &data, &results,
+            ));
             participants.insert(data.profile.id.clone(), report.ctx);
         }
         let opts = cohortpress::group::GroupOptions {
@@ -139,7 +141,8 @@ fn contexts() -> &'static Contexts {
             confidence: 0.95,
         };
         let group = cohortpress::group::summarize(&rows, &opts);
-        let group = cohortpress::report::group_context(&scope, &group, participants_with_errors).ctx;
+        let group =
+            cohortpress::report::group_context(&scope, &group, participants_with_errors).ctx;
         Contexts {
             participants,
             group,

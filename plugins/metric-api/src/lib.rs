@@ -108,10 +108,6 @@ impl Period {
     pub fn contains(&self, d: NaiveDate) -> bool {
         d >= self.from && d <= self.to
     }
-    /// Number of days in the period (inclusive).
-    pub fn days(&self) -> i64 {
-        (self.to - self.from).num_days() + 1
-    }
 }
 
 /// Everything a module gets besides the participant's data.
