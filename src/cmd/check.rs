@@ -364,6 +364,9 @@ pub fn run_check_with(
     }
     match write_report_with(&report, opts, out) {
         Ok(()) => exit_code_of(&report),
+        // The reader stopped early (`cohortpress check … | head`): what was checked is unchanged,
+        // so the code says what the inputs are, as other Unix filters do on a closed pipe.
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => exit_code_of(&report),
         Err(_) => exit_code::OUTPUT_FAILED,
     }
 }
