@@ -570,10 +570,57 @@ impl MetricModule for OutcomesModule {
         data: &ParticipantData,
     ) -> Result<ModuleOutput, ModuleError> {
         let profile = &data.profile;
+        let mut output = ModuleOutput::default();
+        let w = Weights::of(ctx, data);
+        let bmi1 = push_weight_outcomes(&mut output, ctx, data, &w);
+        output.tables.push(milestones_table(w.w0, &w.levels));
+        // Labs up to the end of the period.
+        let labs: Vec<&LabResult> = data
+            .labs
+            .iter()
+            .filter(|l| l.date <= ctx.period.to)
+            .collect();
+        output.tables.push(labs_table(&labs, profile.sex));
+
+        // ---- Flags ----
+        if w.w0.is_none() {
+            output.push_flag(
+                "insufficient_data",
+                FlagSeverity::Info,
+                "No weigh-in on or after enrolment yet, so weight outcomes cannot be shown.",
+            );
+        }
+        let fast = push_fast_loss_flag(&mut output, ctx, &w.levels);
+        let low_intake = push_intake_flags(&mut output, ctx, data);
+        push_low_bmi_flag(&mut output, bmi1);
+        push_lab_flags(&mut output, &labs, profile.sex);
+        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG) && (fast || low_intake) {
+            push_medication_flag(&mut output, fast, low_intake);
+        }
+        Ok(output)
+    }
+}
+
+/// The weights the outcomes are built from.
+struct Weights {
+    /// Daily mean weigh-ins from enrolment to the end of the period.
+    raw: Vec<(NaiveDate, f64)>,
+    /// Starting weight: the first weigh-in day on or after enrolment.
+    w0: Option<f64>,
+    /// Current weight with its interval and where it came from (`trend` or `weigh_ins`).
+    current: Option<f64>,
+    lower: Option<f64>,
+    upper: Option<f64>,
+    source: &'static str,
+    /// Trend levels by day from the baseline day, else the raw daily means.
+    levels: Vec<(NaiveDate, f64)>,
+}
+
+impl Weights {
+    fn of(ctx: &ModuleContext, data: &ParticipantData) -> Weights {
+        let profile = &data.profile;
         let to = ctx.period.to;
         let trend = ctx.earlier.get(TREND_MODULE);
-        let mut output = ModuleOutput::default();
-
         // Baseline: the first weigh-in day on or after enrolment, mean of that day.
         let raw = daily_means(data, profile.enrolled, to);
         let baseline = raw.first().copied();
@@ -598,288 +645,336 @@ impl MetricModule for OutcomesModule {
             }
             _ => raw.clone(),
         };
-
-        let m = profile.height.m();
-        let bmi_of = |kg: Option<f64>| kg.filter(|_| m > 0.0).map(|kg| bmi(kg, m));
-        let change = w0.zip(current).map(|(a, b)| b - a);
-        let change_pct = w0.zip(change).map(|(a, c)| 100.0 * c / a);
-        let (bmi0, bmi1) = (bmi_of(w0), bmi_of(current));
-
-        output.push_scalar("baseline_weight_kg", w0, "kg", "Starting weight");
-        output.push_interval(
-            "current_weight_kg",
+        Weights {
+            raw,
+            w0,
             current,
             lower,
             upper,
-            "kg",
-            "Current weight",
-        );
-        output.push_scalar("change_kg", change, "kg", "Weight change");
-        output.push_scalar("change_percent", change_pct, "%", "Weight change");
-        output.push_scalar("bmi_baseline_kg_m2", bmi0, "kg/m2", "Starting BMI");
-        output.push_scalar("bmi_current_kg_m2", bmi1, "kg/m2", "Current BMI");
-        output.push_scalar(
-            "bmi_change_kg_m2",
-            bmi0.zip(bmi1).map(|(a, b)| b - a),
-            "kg/m2",
-            "BMI change",
-        );
-        let rate = match trend.and_then(|t| t.scalar("slope_kg_per_week")) {
-            Some(r) => Some(r),
-            None => {
-                let in_period: Vec<_> = raw
-                    .iter()
-                    .copied()
-                    .filter(|(d, _)| *d >= ctx.period.from)
-                    .collect();
-                ols_slope_per_week(&in_period)
-            }
-        };
-        output.push_scalar("rate_kg_per_week", rate, "kg/wk", "Rate of change per week");
-        let max_loss = w0.filter(|_| !levels.is_empty()).map(|w0| {
-            levels
-                .iter()
-                .map(|(_, l)| 100.0 * (w0 - l) / w0)
-                .fold(0.0, f64::max)
-        });
-        output.push_scalar("max_loss_percent", max_loss, "%", "Largest loss so far");
-
-        if let Some(b) = bmi0 {
-            let (code, label) = who_bmi_category(b);
-            output.push_text("bmi_category_baseline", code, label);
-        }
-        if let Some(b) = bmi1 {
-            let (code, label) = who_bmi_category(b);
-            output.push_text("bmi_category_current", code, label);
-        }
-        if let Some(p) = change_pct {
-            let (code, label) = weight_change_category(p);
-            output.push_text("weight_change_category", code, label);
-        }
-        output.push_text(
-            "current_weight_source",
             source,
-            if source == "trend" {
-                "weight trend"
-            } else {
-                "last weigh-in"
-            },
-        );
-
-        // Milestones: first day the trend level is at or below the threshold weight.
-        let mut rows = Vec::new();
-        for t in MILESTONES_PERCENT {
-            let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
-            let reached = threshold
-                .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
-                .map(|(d, _)| *d);
-            rows.push(vec![
-                Cell::Number(t),
-                threshold.map_or(Cell::Empty, Cell::Number),
-                Cell::Text(if reached.is_some() { "yes" } else { "no" }.into()),
-                reached.map_or(Cell::Empty, |d| Cell::Text(d.to_string())),
-            ]);
+            levels,
         }
-        output.tables.push(Table {
-            name: "milestones".into(),
-            label: "Weight-loss milestones".into(),
-            columns: vec![
-                Column::new("threshold_percent", "%", "Loss of"),
-                Column::new("threshold_weight_kg", "kg", "Weight at or below"),
-                Column::new("reached", "", "Reached"),
-                Column::new("date_reached", "", "First reached on"),
-            ],
-            rows,
-        });
-
-        // Labs up to the end of the period.
-        let labs: Vec<&LabResult> = data.labs.iter().filter(|l| l.date <= to).collect();
-        output.tables.push(Table {
-            name: "labs".into(),
-            label: "Lab results and measurements".into(),
-            columns: vec![
-                Column::new("date", "", "Date"),
-                Column::new("test", "", "Test"),
-                Column::new("value", "", "Value"),
-                Column::new("unit", "", "Unit"),
-                Column::new("value_alt", "", "Value (other unit)"),
-                Column::new("unit_alt", "", "Other unit"),
-                Column::new("category", "", "Category"),
-                Column::new("eag_mg_dl", "mg/dL", "Estimated average glucose"),
-            ],
-            rows: labs
-                .iter()
-                .map(|l| {
-                    let alt = lab_alt(l);
-                    vec![
-                        Cell::Text(l.date.to_string()),
-                        Cell::Text(test_code(l.test).into()),
-                        Cell::Number(l.value),
-                        Cell::Text(l.test.canonical_unit().into()),
-                        alt.map_or(Cell::Empty, |a| Cell::Number(a.0)),
-                        alt.map_or(Cell::Empty, |a| Cell::Text(a.1.into())),
-                        Cell::Text(lab_category(l, profile.sex).into()),
-                        if l.test == LabTest::Hba1c {
-                            Cell::Number(eag_mg_dl(l.value))
-                        } else {
-                            Cell::Empty
-                        },
-                    ]
-                })
-                .collect(),
-        });
-
-        // ---- Flags ----
-        if w0.is_none() {
-            output.push_flag(
-                "insufficient_data",
-                FlagSeverity::Info,
-                "No weigh-in on or after enrolment yet, so weight outcomes cannot be shown.",
-            );
-        }
-
-        let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
-        let span = ctx
-            .setting_f64("fast_loss_span_days", 21.0)
-            .round()
-            .max(1.0) as usize;
-        // Only spans that end in the reporting period: a fast spell months ago was flagged in
-        // that month's report and is not raised again every month after.
-        let daily: Vec<(NaiveDate, f64)> = fill_daily(&levels)
-            .into_iter()
-            .filter(|(d, _)| *d <= ctx.period.to)
-            .collect();
-        let fast =
-            fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
-        if let Some((fastest, (d0, d1, rate))) = fast {
-            output.push_flag(
-                "fast_loss",
-                FlagSeverity::Clinical,
-                format!(
-                    "Weight came down faster than {} a week over {span} days in a row (most \
-                     recently {d0} to {d1}: about {} a week; fastest about {} a week). Losing \
-                     more than about 1 kg (2 lb) a week for several weeks is worth reviewing \
-                     with a licensed clinician.",
-                    kg_lb(limit),
-                    kg_lb(rate),
-                    kg_lb(fastest),
-                ),
-            );
-        }
-
-        let intake: Vec<f64> = data
-            .intake
-            .iter()
-            .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
-            .map(|i| i.kcal)
-            .collect();
-        let mut low_intake = false;
-        if intake.len() >= MIN_INTAKE_DAYS {
-            let mean = intake.iter().sum::<f64>() / intake.len() as f64;
-            let floor = match profile.sex {
-                Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
-                Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
-            };
-            let very_low = ctx.setting_f64("very_low_intake", 800.0);
-            let days = intake.len();
-            // Very low subsumes low: one flag, the more serious one.
-            if mean < very_low {
-                low_intake = true;
-                output.push_flag(
-                    "very_low_intake",
-                    FlagSeverity::Clinical,
-                    format!(
-                        "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                         days, below {very_low:.0} kcal a day. Eating this little is normally \
-                         done only under medical supervision; please review it with a licensed \
-                         clinician."
-                    ),
-                );
-            } else if mean < floor {
-                low_intake = true;
-                // Clinical like the very-low flag: intakes below the usual floors are for a
-                // licensed clinician to review (the report's cautions say so).
-                output.push_flag(
-                    "low_intake",
-                    FlagSeverity::Clinical,
-                    format!(
-                        "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                         days, below {floor:.0} kcal a day, a level usually not advised without \
-                         supervision. If the log is complete, consider discussing it with a \
-                         licensed clinician."
-                    ),
-                );
-            }
-        }
-
-        if let Some(b) = bmi1
-            && who_bmi_category(b).0 == "underweight"
-        {
-            output.push_flag(
-                "low_bmi",
-                FlagSeverity::Clinical,
-                format!(
-                    "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
-                         normal range (WHO). Further weight loss should be reviewed with a \
-                         licensed clinician."
-                ),
-            );
-        }
-
-        let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
-        for l in &labs {
-            latest.insert(l.test, l);
-        }
-        for l in latest.values() {
-            let category = lab_category(l, profile.sex);
-            let (code, severity) = match category {
-                "diabetes_range" => ("lab_diabetes_range", FlagSeverity::Clinical),
-                "prediabetes_range" => ("lab_prediabetes_range", FlagSeverity::Notice),
-                _ => continue,
-            };
-            let shown = match l.test {
-                LabTest::Hba1c => format!("{:.1} %", l.value),
-                _ => format!(
-                    "{:.1} mmol/L ({:.0} mg/dL)",
-                    l.value,
-                    l.value * GLUCOSE_MGDL_PER_MMOLL
-                ),
-            };
-            output.push_flag(
-                code,
-                severity,
-                format!(
-                    "The most recent {} ({shown}, {}) is {} (ADA Standards of Care). \
-                     One result is not a diagnosis; please review it with a licensed clinician.",
-                    test_words(l.test),
-                    l.date,
-                    category_label(category),
-                ),
-            );
-        }
-
-        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG)
-            && (fast.is_some() || low_intake)
-        {
-            let why = match (fast.is_some(), low_intake) {
-                (true, true) => "fast weight loss and low logged intake",
-                (true, false) => "fast weight loss",
-                _ => "low logged intake",
-            };
-            output.push_flag(
-                "medication_review",
-                FlagSeverity::Clinical,
-                format!(
-                    "The profile notes a glucose-lowering medicine. With {why}, the dose that \
-                     suited before may now lower blood sugar too far. Please ask the clinician \
-                     who prescribes it whether the dose needs review; do not change it without \
-                     their advice."
-                ),
-            );
-        }
-
-        Ok(output)
     }
+}
+
+/// Starting and current weight, change, BMI, rate and largest loss, with their categories.
+/// Returns the current BMI.
+fn push_weight_outcomes(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    data: &ParticipantData,
+    w: &Weights,
+) -> Option<f64> {
+    let trend = ctx.earlier.get(TREND_MODULE);
+    let Weights {
+        raw,
+        w0,
+        current,
+        lower,
+        upper,
+        source,
+        levels,
+    } = w;
+    let (w0, current, lower, upper, source) = (*w0, *current, *lower, *upper, *source);
+    let m = data.profile.height.m();
+    let bmi_of = |kg: Option<f64>| kg.filter(|_| m > 0.0).map(|kg| bmi(kg, m));
+    let change = w0.zip(current).map(|(a, b)| b - a);
+    let change_pct = w0.zip(change).map(|(a, c)| 100.0 * c / a);
+    let (bmi0, bmi1) = (bmi_of(w0), bmi_of(current));
+
+    output.push_scalar("baseline_weight_kg", w0, "kg", "Starting weight");
+    output.push_interval(
+        "current_weight_kg",
+        current,
+        lower,
+        upper,
+        "kg",
+        "Current weight",
+    );
+    output.push_scalar("change_kg", change, "kg", "Weight change");
+    output.push_scalar("change_percent", change_pct, "%", "Weight change");
+    output.push_scalar("bmi_baseline_kg_m2", bmi0, "kg/m2", "Starting BMI");
+    output.push_scalar("bmi_current_kg_m2", bmi1, "kg/m2", "Current BMI");
+    output.push_scalar(
+        "bmi_change_kg_m2",
+        bmi0.zip(bmi1).map(|(a, b)| b - a),
+        "kg/m2",
+        "BMI change",
+    );
+    let rate = match trend.and_then(|t| t.scalar("slope_kg_per_week")) {
+        Some(r) => Some(r),
+        None => {
+            let in_period: Vec<_> = raw
+                .iter()
+                .copied()
+                .filter(|(d, _)| *d >= ctx.period.from)
+                .collect();
+            ols_slope_per_week(&in_period)
+        }
+    };
+    output.push_scalar("rate_kg_per_week", rate, "kg/wk", "Rate of change per week");
+    let max_loss = w0.filter(|_| !levels.is_empty()).map(|w0| {
+        levels
+            .iter()
+            .map(|(_, l)| 100.0 * (w0 - l) / w0)
+            .fold(0.0, f64::max)
+    });
+    output.push_scalar("max_loss_percent", max_loss, "%", "Largest loss so far");
+
+    if let Some(b) = bmi0 {
+        let (code, label) = who_bmi_category(b);
+        output.push_text("bmi_category_baseline", code, label);
+    }
+    if let Some(b) = bmi1 {
+        let (code, label) = who_bmi_category(b);
+        output.push_text("bmi_category_current", code, label);
+    }
+    if let Some(p) = change_pct {
+        let (code, label) = weight_change_category(p);
+        output.push_text("weight_change_category", code, label);
+    }
+    output.push_text(
+        "current_weight_source",
+        source,
+        if source == "trend" {
+            "weight trend"
+        } else {
+            "last weigh-in"
+        },
+    );
+
+    bmi1
+}
+
+/// Milestones: first day the trend level is at or below each threshold weight.
+fn milestones_table(w0: Option<f64>, levels: &[(NaiveDate, f64)]) -> Table {
+    let mut rows = Vec::new();
+    for t in MILESTONES_PERCENT {
+        let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
+        let reached = threshold
+            .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
+            .map(|(d, _)| *d);
+        rows.push(vec![
+            Cell::Number(t),
+            threshold.map_or(Cell::Empty, Cell::Number),
+            Cell::Text(if reached.is_some() { "yes" } else { "no" }.into()),
+            reached.map_or(Cell::Empty, |d| Cell::Text(d.to_string())),
+        ]);
+    }
+    Table {
+        name: "milestones".into(),
+        label: "Weight-loss milestones".into(),
+        columns: vec![
+            Column::new("threshold_percent", "%", "Loss of"),
+            Column::new("threshold_weight_kg", "kg", "Weight at or below"),
+            Column::new("reached", "", "Reached"),
+            Column::new("date_reached", "", "First reached on"),
+        ],
+        rows,
+    }
+}
+
+/// Lab results and measurements up to the end of the period, with their categories.
+fn labs_table(labs: &[&LabResult], sex: Sex) -> Table {
+    Table {
+        name: "labs".into(),
+        label: "Lab results and measurements".into(),
+        columns: vec![
+            Column::new("date", "", "Date"),
+            Column::new("test", "", "Test"),
+            Column::new("value", "", "Value"),
+            Column::new("unit", "", "Unit"),
+            Column::new("value_alt", "", "Value (other unit)"),
+            Column::new("unit_alt", "", "Other unit"),
+            Column::new("category", "", "Category"),
+            Column::new("eag_mg_dl", "mg/dL", "Estimated average glucose"),
+        ],
+        rows: labs
+            .iter()
+            .map(|l| {
+                let alt = lab_alt(l);
+                vec![
+                    Cell::Text(l.date.to_string()),
+                    Cell::Text(test_code(l.test).into()),
+                    Cell::Number(l.value),
+                    Cell::Text(l.test.canonical_unit().into()),
+                    alt.map_or(Cell::Empty, |a| Cell::Number(a.0)),
+                    alt.map_or(Cell::Empty, |a| Cell::Text(a.1.into())),
+                    Cell::Text(lab_category(l, sex).into()),
+                    if l.test == LabTest::Hba1c {
+                        Cell::Number(eag_mg_dl(l.value))
+                    } else {
+                        Cell::Empty
+                    },
+                ]
+            })
+            .collect(),
+    }
+}
+
+/// A fast-loss flag when the levels fell faster than the limit over the span, in a span that
+/// ends in the period. Returns whether it was raised.
+fn push_fast_loss_flag(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    levels: &[(NaiveDate, f64)],
+) -> bool {
+    let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
+    let span = ctx
+        .setting_f64("fast_loss_span_days", 21.0)
+        .round()
+        .max(1.0) as usize;
+    // Only spans that end in the reporting period: a fast spell months ago was flagged in
+    // that month's report and is not raised again every month after.
+    let daily: Vec<(NaiveDate, f64)> = fill_daily(levels)
+        .into_iter()
+        .filter(|(d, _)| *d <= ctx.period.to)
+        .collect();
+    let fast =
+        fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
+    if let Some((fastest, (d0, d1, rate))) = fast {
+        output.push_flag(
+            "fast_loss",
+            FlagSeverity::Clinical,
+            format!(
+                "Weight came down faster than {} a week over {span} days in a row (most \
+                 recently {d0} to {d1}: about {} a week; fastest about {} a week). Losing \
+                 more than about 1 kg (2 lb) a week for several weeks is worth reviewing \
+                 with a licensed clinician.",
+                kg_lb(limit),
+                kg_lb(rate),
+                kg_lb(fastest),
+            ),
+        );
+    }
+
+    fast.is_some()
+}
+
+/// Low or very low logged intake over the period. Returns whether either was raised.
+fn push_intake_flags(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    data: &ParticipantData,
+) -> bool {
+    let profile = &data.profile;
+    let intake: Vec<f64> = data
+        .intake
+        .iter()
+        .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
+        .map(|i| i.kcal)
+        .collect();
+    let mut low_intake = false;
+    if intake.len() >= MIN_INTAKE_DAYS {
+        let mean = intake.iter().sum::<f64>() / intake.len() as f64;
+        let floor = match profile.sex {
+            Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
+            Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
+        };
+        let very_low = ctx.setting_f64("very_low_intake", 800.0);
+        let days = intake.len();
+        // Very low subsumes low: one flag, the more serious one.
+        if mean < very_low {
+            low_intake = true;
+            output.push_flag(
+                "very_low_intake",
+                FlagSeverity::Clinical,
+                format!(
+                    "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
+                     days, below {very_low:.0} kcal a day. Eating this little is normally \
+                     done only under medical supervision; please review it with a licensed \
+                     clinician."
+                ),
+            );
+        } else if mean < floor {
+            low_intake = true;
+            // Clinical like the very-low flag: intakes below the usual floors are for a
+            // licensed clinician to review (the report's cautions say so).
+            output.push_flag(
+                "low_intake",
+                FlagSeverity::Clinical,
+                format!(
+                    "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
+                     days, below {floor:.0} kcal a day, a level usually not advised without \
+                     supervision. If the log is complete, consider discussing it with a \
+                     licensed clinician."
+                ),
+            );
+        }
+    }
+
+    low_intake
+}
+
+/// A BMI below the normal range.
+fn push_low_bmi_flag(output: &mut ModuleOutput, bmi1: Option<f64>) {
+    if let Some(b) = bmi1
+        && who_bmi_category(b).0 == "underweight"
+    {
+        output.push_flag(
+            "low_bmi",
+            FlagSeverity::Clinical,
+            format!(
+                "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
+                     normal range (WHO). Further weight loss should be reviewed with a \
+                     licensed clinician."
+            ),
+        );
+    }
+}
+
+/// The most recent result of each test in the prediabetes or diabetes range.
+fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Sex) {
+    let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
+    for l in labs {
+        latest.insert(l.test, l);
+    }
+    for l in latest.values() {
+        let category = lab_category(l, sex);
+        let (code, severity) = match category {
+            "diabetes_range" => ("lab_diabetes_range", FlagSeverity::Clinical),
+            "prediabetes_range" => ("lab_prediabetes_range", FlagSeverity::Notice),
+            _ => continue,
+        };
+        let shown = match l.test {
+            LabTest::Hba1c => format!("{:.1} %", l.value),
+            _ => format!(
+                "{:.1} mmol/L ({:.0} mg/dL)",
+                l.value,
+                l.value * GLUCOSE_MGDL_PER_MMOLL
+            ),
+        };
+        output.push_flag(
+            code,
+            severity,
+            format!(
+                "The most recent {} ({shown}, {}) is {} (ADA Standards of Care). \
+                 One result is not a diagnosis; please review it with a licensed clinician.",
+                test_words(l.test),
+                l.date,
+                category_label(category),
+            ),
+        );
+    }
+}
+
+/// A glucose-lowering medicine with fast loss or low intake: ask for a dose review.
+fn push_medication_flag(output: &mut ModuleOutput, fast: bool, low_intake: bool) {
+    let why = match (fast, low_intake) {
+        (true, true) => "fast weight loss and low logged intake",
+        (true, false) => "fast weight loss",
+        _ => "low logged intake",
+    };
+    output.push_flag(
+        "medication_review",
+        FlagSeverity::Clinical,
+        format!(
+            "The profile notes a glucose-lowering medicine. With {why}, the dose that \
+             suited before may now lower blood sugar too far. Please ask the clinician \
+             who prescribes it whether the dose needs review; do not change it without \
+             their advice."
+        ),
+    );
 }
 
 #[cfg(test)]
