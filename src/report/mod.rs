@@ -1,6 +1,6 @@
 //! Reports: the report model (what templates and the PDF layout see), HTML through handlebars
-//! templates, and PDF through [`crate::render::pdf`]. Everything here returns bytes; only the
-//! runner writes files.
+//! templates, and PDF through [`crate::render::pdf`]. Everything here returns bytes; the run writes
+//! them through [`crate::output`]. Reports see a [`Scope`], never the run plan.
 //!
 //! One model feeds both formats: [`participant::ParticipantReportContext`] and
 //! [`group::GroupReportContext`] hold every figure already formatted in the program's display
