@@ -6,9 +6,10 @@
 //! file whose shape cannot be trusted (missing column) is an error. Every list comes out sorted
 //! by date.
 
-use super::table::{Cells, CsvOptions, Dropped, FileCtx, FileSpec, Table, read_table};
+use super::table::{Cells, CsvOptions, Dropped, FileCtx, Table, read_table};
 use crate::activities;
 use crate::diag::Diagnostic;
+pub use crate::program::files::{ACTIVITY, ALL_FILES, INTAKE, LABS, MET_RANGE, SESSIONS, WEIGHTS};
 use chrono::{Datelike, NaiveDate, NaiveTime};
 use cohortpress_metric_api::units::{
     CM_PER_IN, KG_PER_LB, Mass, glucose_mgdl_to_mmoll, hba1c_mmolmol_to_percent,
@@ -19,122 +20,6 @@ use cohortpress_metric_api::{
 use std::collections::{BTreeMap, HashMap};
 use std::fmt::Debug;
 
-/// Units a weight column's header may carry.
-const MASS_UNITS: &[&str] = &[
-    "kg",
-    "kgs",
-    "kilogram",
-    "kilograms",
-    "lb",
-    "lbs",
-    "pound",
-    "pounds",
-];
-
-/// `weights.csv`.
-pub const WEIGHTS: FileSpec = FileSpec {
-    name: "weights.csv",
-    required: &["date", "weight", "unit"],
-    optional: &["time", "source"],
-    aliases: &[
-        ("day", "date"),
-        ("datetime", "date"),
-        ("date_time", "date"),
-        ("timestamp", "date"),
-        ("measured_at", "date"),
-        ("body_weight", "weight"),
-        ("bodyweight", "weight"),
-        ("mass", "weight"),
-        ("body_mass", "weight"),
-        ("weight_unit", "unit"),
-        ("units", "unit"),
-        ("device", "source"),
-    ],
-    header_units: &[("weight", MASS_UNITS, Some("unit"))],
-};
-/// `intake.csv`.
-pub const INTAKE: FileSpec = FileSpec {
-    name: "intake.csv",
-    required: &["date", "kcal"],
-    optional: &["carbs_g", "fat_g", "protein_g", "free_sugars_g", "time"],
-    aliases: &[
-        ("day", "date"),
-        ("datetime", "date"),
-        ("timestamp", "date"),
-        ("calories", "kcal"),
-        ("energy", "kcal"),
-        ("energy_kcal", "kcal"),
-        ("carbs", "carbs_g"),
-        ("carbohydrate", "carbs_g"),
-        ("carbohydrates", "carbs_g"),
-        ("fat", "fat_g"),
-        ("protein", "protein_g"),
-        ("free_sugars", "free_sugars_g"),
-    ],
-    header_units: &[
-        ("kcal", &["kcal", "cal", "kj"], None),
-        ("carbs_g", &["g"], None),
-        ("fat_g", &["g"], None),
-        ("protein_g", &["g"], None),
-        ("free_sugars_g", &["g"], None),
-    ],
-};
-/// `activity.csv`.
-pub const ACTIVITY: FileSpec = FileSpec {
-    name: "activity.csv",
-    required: &["date", "activity", "minutes"],
-    optional: &["met", "steps", "time"],
-    aliases: &[
-        ("day", "date"),
-        ("datetime", "date"),
-        ("timestamp", "date"),
-        ("start", "date"),
-        ("activity_type", "activity"),
-        ("exercise", "activity"),
-        ("type", "activity"),
-        ("duration", "minutes"),
-        ("mins", "minutes"),
-        ("duration_min", "minutes"),
-        ("duration_minutes", "minutes"),
-        ("mets", "met"),
-        ("step_count", "steps"),
-    ],
-    header_units: &[(
-        "minutes",
-        &["min", "mins", "minutes", "h", "hr", "hours"],
-        None,
-    )],
-};
-/// `sessions.csv`.
-pub const SESSIONS: FileSpec = FileSpec {
-    name: "sessions.csv",
-    required: &["date", "session", "attended"],
-    optional: &[],
-    aliases: &[
-        ("day", "date"),
-        ("attendance", "attended"),
-        ("present", "attended"),
-    ],
-    header_units: &[],
-};
-/// `labs.csv`.
-pub const LABS: FileSpec = FileSpec {
-    name: "labs.csv",
-    required: &["date", "test", "value"],
-    optional: &["unit"],
-    aliases: &[
-        ("day", "date"),
-        ("datetime", "date"),
-        ("test_name", "test"),
-        ("analyte", "test"),
-        ("result", "value"),
-        ("units", "unit"),
-    ],
-    header_units: &[("value", &[], None)],
-};
-/// Every CSV file a participant folder may hold.
-pub const ALL_FILES: [FileSpec; 5] = [WEIGHTS, INTAKE, ACTIVITY, SESSIONS, LABS];
-
 /// Plausible body weight, kg (common practice: outside this range a value is a typing or unit
 /// error, not a person in a lifestyle program).
 pub const WEIGHT_KG_RANGE: (f64, f64) = (25.0, 350.0);
@@ -143,9 +28,6 @@ pub const MAX_KCAL_PER_DAY: f64 = 10_000.0;
 /// Most minutes one activity row, or one day's rows together, can hold: 16 waking hours
 /// (common practice).
 pub const MAX_ACTIVITY_MINUTES: f64 = 960.0;
-/// Accepted MET values: 1 (rest) to 23 (the highest values in the 2011 Compendium, running at
-/// about 14 mph; common practice to use it as the ceiling).
-pub const MET_RANGE: (f64, f64) = (1.0, 23.0);
 /// Pounds per kilogram (1 / 0.45359237, exact factor of 1959).
 pub const LB_PER_KG: f64 = 1.0 / KG_PER_LB;
 /// A weigh-in within ±6 % of 2.2046 times its neighbours is read as written in the other unit

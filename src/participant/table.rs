@@ -12,6 +12,7 @@
 use super::quantity::{NumberError, parse_decimal};
 use crate::diag::Diagnostic;
 use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_ROWS};
+pub use crate::program::files::{FileSpec, LocalZone};
 use chrono::{DateTime, FixedOffset, NaiveDate, NaiveDateTime, NaiveTime, Offset};
 use std::cell::{Cell, RefCell};
 use std::collections::{BTreeMap, HashMap};
@@ -71,51 +72,6 @@ impl FileCtx {
     }
 }
 
-/// The participants' local time zone (`input.time_zone`): an IANA zone or a fixed offset.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum LocalZone {
-    /// An IANA time zone such as `Europe/Berlin` (daylight saving time applied).
-    Named(chrono_tz::Tz),
-    /// A fixed offset from UTC such as `+01:00`.
-    Fixed(FixedOffset),
-}
-
-impl LocalZone {
-    /// Reads `UTC`, an IANA name or an offset `+HH:MM` / `-HH:MM`.
-    pub fn parse(s: &str) -> Option<LocalZone> {
-        let s = s.trim();
-        if let Ok(tz) = s.parse::<chrono_tz::Tz>() {
-            return Some(LocalZone::Named(tz));
-        }
-        let (sign, rest) = match s.as_bytes().first()? {
-            b'+' => (1, &s[1..]),
-            b'-' => (-1, &s[1..]),
-            _ => return None,
-        };
-        let (h, m) = rest.split_once(':').unwrap_or((rest, "0"));
-        let (h, m): (i32, i32) = (h.parse().ok()?, m.parse().ok()?);
-        if !(0..=14).contains(&h) || !(0..60).contains(&m) {
-            return None;
-        }
-        FixedOffset::east_opt(sign * (h * 3600 + m * 60)).map(LocalZone::Fixed)
-    }
-
-    /// The local date and time of an instant.
-    fn local(&self, t: DateTime<FixedOffset>) -> NaiveDateTime {
-        match self {
-            LocalZone::Named(tz) => t.with_timezone(tz).naive_local(),
-            LocalZone::Fixed(o) => t.with_timezone(o).naive_local(),
-        }
-    }
-
-    fn name(&self) -> String {
-        match self {
-            LocalZone::Named(tz) => tz.name().to_string(),
-            LocalZone::Fixed(o) => o.to_string(),
-        }
-    }
-}
-
 /// Column-name mapping of one file kind: the header as written (normalised by
 /// [`header_key`]) → our column name.
 pub type ColumnMap = BTreeMap<String, String>;
@@ -144,34 +100,6 @@ impl Default for CsvOptions {
             columns: Arc::default(),
             activities: Arc::default(),
         }
-    }
-}
-
-/// The columns a file must and may have.
-#[derive(Debug, Clone, Copy)]
-pub struct FileSpec {
-    /// File name, e.g. `weights.csv`.
-    pub name: &'static str,
-    /// Columns that must be present.
-    pub required: &'static [&'static str],
-    /// Columns that may be present.
-    pub optional: &'static [&'static str],
-    /// Other header names read as one of our columns (after [`header_key`]).
-    pub aliases: &'static [(&'static str, &'static str)],
-    /// Columns whose header may carry a unit (`Weight (lb)`): the units accepted (empty: any,
-    /// checked row by row) and the unit column such a header makes unnecessary.
-    pub header_units: &'static [(&'static str, &'static [&'static str], Option<&'static str>)],
-}
-
-impl FileSpec {
-    /// The file kind used in `input.columns` (`weights` for `weights.csv`).
-    pub fn kind(&self) -> &'static str {
-        self.name.strip_suffix(".csv").unwrap_or(self.name)
-    }
-
-    /// Every column name of the file.
-    pub fn all_columns(&self) -> impl Iterator<Item = &'static str> {
-        self.required.iter().chain(self.optional).copied()
     }
 }
 

@@ -243,7 +243,7 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
         );
     }
     if let Some(tz) = &def.input.time_zone
-        && crate::participant::table::LocalZone::parse(tz).is_none()
+        && super::files::LocalZone::parse(tz).is_none()
     {
         out.push(
             err("input.time_zone", "unknown time zone".into())
@@ -252,7 +252,7 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
         );
     }
     for (kind, map) in &def.input.columns {
-        let Some(spec) = crate::participant::records::ALL_FILES
+        let Some(spec) = super::files::ALL_FILES
             .iter()
             .find(|f| f.kind() == kind.as_str())
         else {
@@ -305,7 +305,7 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 }
             }
             (None, Some(m)) => {
-                let (lo, hi) = crate::participant::records::MET_RANGE;
+                let (lo, hi) = super::files::MET_RANGE;
                 if !(m.is_finite() && (lo..=hi).contains(&m)) {
                     out.push(
                         err(&key, "MET value out of range".into())

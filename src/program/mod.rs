@@ -4,6 +4,7 @@
 //! result with resolved paths and the [`ProgramInfo`] every module receives. Loading and the
 //! semantic checks live in [`load`].
 
+pub mod files;
 pub mod load;
 
 pub use load::load_program;

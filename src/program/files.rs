@@ -1,0 +1,198 @@
+//! The participant files' contract: the columns each CSV file must and may have, the accepted
+//! MET range and the participants' local time zone. `program.yaml`'s `input:` section is
+//! checked against them here, and the participant readers (`crate::participant`) read by them.
+
+use chrono::{DateTime, FixedOffset, NaiveDateTime};
+
+/// The participants' local time zone (`input.time_zone`): an IANA zone or a fixed offset.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum LocalZone {
+    /// An IANA time zone such as `Europe/Berlin` (daylight saving time applied).
+    Named(chrono_tz::Tz),
+    /// A fixed offset from UTC such as `+01:00`.
+    Fixed(FixedOffset),
+}
+
+impl LocalZone {
+    /// Reads `UTC`, an IANA name or an offset `+HH:MM` / `-HH:MM`.
+    pub fn parse(s: &str) -> Option<LocalZone> {
+        let s = s.trim();
+        if let Ok(tz) = s.parse::<chrono_tz::Tz>() {
+            return Some(LocalZone::Named(tz));
+        }
+        let (sign, rest) = match s.as_bytes().first()? {
+            b'+' => (1, &s[1..]),
+            b'-' => (-1, &s[1..]),
+            _ => return None,
+        };
+        let (h, m) = rest.split_once(':').unwrap_or((rest, "0"));
+        let (h, m): (i32, i32) = (h.parse().ok()?, m.parse().ok()?);
+        if !(0..=14).contains(&h) || !(0..60).contains(&m) {
+            return None;
+        }
+        FixedOffset::east_opt(sign * (h * 3600 + m * 60)).map(LocalZone::Fixed)
+    }
+
+    /// The local date and time of an instant.
+    pub(crate) fn local(&self, t: DateTime<FixedOffset>) -> NaiveDateTime {
+        match self {
+            LocalZone::Named(tz) => t.with_timezone(tz).naive_local(),
+            LocalZone::Fixed(o) => t.with_timezone(o).naive_local(),
+        }
+    }
+
+    pub(crate) fn name(&self) -> String {
+        match self {
+            LocalZone::Named(tz) => tz.name().to_string(),
+            LocalZone::Fixed(o) => o.to_string(),
+        }
+    }
+}
+
+/// The columns a file must and may have.
+#[derive(Debug, Clone, Copy)]
+pub struct FileSpec {
+    /// File name, e.g. `weights.csv`.
+    pub name: &'static str,
+    /// Columns that must be present.
+    pub required: &'static [&'static str],
+    /// Columns that may be present.
+    pub optional: &'static [&'static str],
+    /// Other header names read as one of our columns (after `participant::table::header_key`).
+    pub aliases: &'static [(&'static str, &'static str)],
+    /// Columns whose header may carry a unit (`Weight (lb)`): the units accepted (empty: any,
+    /// checked row by row) and the unit column such a header makes unnecessary.
+    pub header_units: &'static [(&'static str, &'static [&'static str], Option<&'static str>)],
+}
+
+impl FileSpec {
+    /// The file kind used in `input.columns` (`weights` for `weights.csv`).
+    pub fn kind(&self) -> &'static str {
+        self.name.strip_suffix(".csv").unwrap_or(self.name)
+    }
+
+    /// Every column name of the file.
+    pub fn all_columns(&self) -> impl Iterator<Item = &'static str> {
+        self.required.iter().chain(self.optional).copied()
+    }
+}
+
+/// Units a weight column's header may carry.
+const MASS_UNITS: &[&str] = &[
+    "kg",
+    "kgs",
+    "kilogram",
+    "kilograms",
+    "lb",
+    "lbs",
+    "pound",
+    "pounds",
+];
+
+/// `weights.csv`.
+pub const WEIGHTS: FileSpec = FileSpec {
+    name: "weights.csv",
+    required: &["date", "weight", "unit"],
+    optional: &["time", "source"],
+    aliases: &[
+        ("day", "date"),
+        ("datetime", "date"),
+        ("date_time", "date"),
+        ("timestamp", "date"),
+        ("measured_at", "date"),
+        ("body_weight", "weight"),
+        ("bodyweight", "weight"),
+        ("mass", "weight"),
+        ("body_mass", "weight"),
+        ("weight_unit", "unit"),
+        ("units", "unit"),
+        ("device", "source"),
+    ],
+    header_units: &[("weight", MASS_UNITS, Some("unit"))],
+};
+/// `intake.csv`.
+pub const INTAKE: FileSpec = FileSpec {
+    name: "intake.csv",
+    required: &["date", "kcal"],
+    optional: &["carbs_g", "fat_g", "protein_g", "free_sugars_g", "time"],
+    aliases: &[
+        ("day", "date"),
+        ("datetime", "date"),
+        ("timestamp", "date"),
+        ("calories", "kcal"),
+        ("energy", "kcal"),
+        ("energy_kcal", "kcal"),
+        ("carbs", "carbs_g"),
+        ("carbohydrate", "carbs_g"),
+        ("carbohydrates", "carbs_g"),
+        ("fat", "fat_g"),
+        ("protein", "protein_g"),
+        ("free_sugars", "free_sugars_g"),
+    ],
+    header_units: &[
+        ("kcal", &["kcal", "cal", "kj"], None),
+        ("carbs_g", &["g"], None),
+        ("fat_g", &["g"], None),
+        ("protein_g", &["g"], None),
+        ("free_sugars_g", &["g"], None),
+    ],
+};
+/// `activity.csv`.
+pub const ACTIVITY: FileSpec = FileSpec {
+    name: "activity.csv",
+    required: &["date", "activity", "minutes"],
+    optional: &["met", "steps", "time"],
+    aliases: &[
+        ("day", "date"),
+        ("datetime", "date"),
+        ("timestamp", "date"),
+        ("start", "date"),
+        ("activity_type", "activity"),
+        ("exercise", "activity"),
+        ("type", "activity"),
+        ("duration", "minutes"),
+        ("mins", "minutes"),
+        ("duration_min", "minutes"),
+        ("duration_minutes", "minutes"),
+        ("mets", "met"),
+        ("step_count", "steps"),
+    ],
+    header_units: &[(
+        "minutes",
+        &["min", "mins", "minutes", "h", "hr", "hours"],
+        None,
+    )],
+};
+/// `sessions.csv`.
+pub const SESSIONS: FileSpec = FileSpec {
+    name: "sessions.csv",
+    required: &["date", "session", "attended"],
+    optional: &[],
+    aliases: &[
+        ("day", "date"),
+        ("attendance", "attended"),
+        ("present", "attended"),
+    ],
+    header_units: &[],
+};
+/// `labs.csv`.
+pub const LABS: FileSpec = FileSpec {
+    name: "labs.csv",
+    required: &["date", "test", "value"],
+    optional: &["unit"],
+    aliases: &[
+        ("day", "date"),
+        ("datetime", "date"),
+        ("test_name", "test"),
+        ("analyte", "test"),
+        ("result", "value"),
+        ("units", "unit"),
+    ],
+    header_units: &[("value", &[], None)],
+};
+/// Every CSV file a participant folder may hold.
+pub const ALL_FILES: [FileSpec; 5] = [WEIGHTS, INTAKE, ACTIVITY, SESSIONS, LABS];
+
+/// Accepted MET values: 1 (rest) to 23 (the highest values in the 2011 Compendium, running at
+/// about 14 mph; common practice to use it as the ceiling).
+pub const MET_RANGE: (f64, f64) = (1.0, 23.0);
