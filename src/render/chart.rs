@@ -126,6 +126,14 @@ impl Chart {
         }
     }
 
+    /// Replaces the text alternative (a report's figure caption describes the chart in place).
+    pub fn set_alt_text(&mut self, alt: &str) {
+        match self {
+            Chart::Line(c) => c.alt_text = alt.to_string(),
+            Chart::Bars(c) => c.alt_text = alt.to_string(),
+        }
+    }
+
     /// The drawing size (in chart pixels) the PDF renderer uses; it scales this to the page.
     pub(crate) fn pdf_canvas(&self) -> (u32, u32) {
         match self {
@@ -958,7 +966,7 @@ fn draw_bar_chart<DB: DrawingBackend>(
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
 
     fn d(m: u32, day: u32) -> NaiveDate {
