@@ -158,7 +158,7 @@ pub enum RenderError {
     Json(#[from] serde_json::Error),
 }
 
-/// Chart sizes, in SVG pixels.
+/// Chart sizes, in SVG pixels: width and plot height (a line chart adds its legend strip below).
 const CHART_W: u32 = 720;
 const CHART_H: u32 = 300;
 
