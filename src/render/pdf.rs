@@ -697,7 +697,15 @@ impl Layout {
                 self.heading(*level, text, keep)
             }
             Block::Paragraph(t) => self.paragraph(t, BODY, ink()),
-            Block::Small(t) => self.paragraph(t, SMALL, muted()),
+            Block::Small(t) => {
+                // A note that introduces a table (a caption, "Data behind the chart") stays on
+                // a page with the table's header and first rows.
+                if matches!(next, Some(Block::Table { .. })) {
+                    let lines = wrap(t, Face::Regular, SMALL, CONTENT_W).len() as f32;
+                    self.ensure(lines * SMALL * LEADING + 3.0 * TABLE * 1.3 + 12.0);
+                }
+                self.paragraph(t, SMALL, muted())
+            }
             Block::KeyValues(kvs) => self.key_values(kvs),
             Block::Bullets(items) => self.bullets(items, false),
             Block::Numbered(items) => self.bullets(items, true),

@@ -956,7 +956,14 @@ fn assert_same_text(what: &str, html: &str, pdf_text: &str) {
             Some(i) => at += i + p.len(),
             None => panic!(
                 "{what}: `{piece}` is not in the PDF after `…{}`",
-                &pdf[pdf.floor_char_boundary(at.saturating_sub(80))..at]
+                pdf[..at]
+                    .chars()
+                    .rev()
+                    .take(80)
+                    .collect::<Vec<_>>()
+                    .into_iter()
+                    .rev()
+                    .collect::<String>()
             ),
         }
     }
