@@ -72,7 +72,7 @@ pub enum Block {
         widths: Vec<f32>,
     },
     Chart(Chart),
-    /// A boxed note with a title.
+    /// A boxed note with a title (tagged as a level-3 heading) and text.
     Callout {
         tone: Tone,
         title: String,
@@ -645,7 +645,10 @@ impl Layout {
         }
         self.gap(2.0);
         self.tags.open("Div");
-        self.tags.open("P");
+        // The title (bold lines) is the box's heading, level 3 as in the HTML; the text a P.
+        let title_lines = lines.iter().take_while(|(f, _)| *f == Face::Bold).count();
+        let mut done = 0;
+        let mut open: Option<&str> = None;
         let mut rest = &lines[..];
         while !rest.is_empty() {
             let fit = ((self.remaining() - 2.0 * pad) / lh).floor().max(0.0) as usize;
@@ -667,16 +670,27 @@ impl Layout {
                 push_fill_rect(ops, bar.clone(), MARGIN_X, y, bar_w, h);
             });
             for (i, (face, l)) in rest[..n].iter().enumerate() {
+                let role = if done + i < title_lines { "H3" } else { "P" };
+                if open != Some(role) {
+                    if open.is_some() {
+                        self.tags.close();
+                    }
+                    self.tags.open(role);
+                    open = Some(role);
+                }
                 let baseline = y - pad - i as f32 * lh - BODY * ASCENT;
                 self.text(*face, BODY, ink(), inner_x, baseline, l);
             }
+            done += n;
             self.y -= h;
             rest = &rest[n..];
             if !rest.is_empty() {
                 self.new_page();
             }
         }
-        self.tags.close();
+        if open.is_some() {
+            self.tags.close();
+        }
         self.tags.close();
         self.y -= BODY * 0.9;
     }
@@ -1401,6 +1415,9 @@ pub(crate) mod tests {
         for role in ["H2", "L", "LI", "Lbl", "LBody", "TH[Column]", "TD", "Div"] {
             assert!(position(role).is_some(), "{role} missing from {roles:?}");
         }
+        // A callout: its title is a level-3 heading, then its text.
+        let div = position("Div").unwrap();
+        assert_eq!(&roles[div + 1..div + 3], ["H3", "P"], "{roles:?}");
         // The 60-row weigh-in table: one header row and 60 body rows, although its header is
         // drawn again on every continuation page (as an artifact).
         let last_table = roles.iter().rposition(|r| r == "Table").unwrap();
