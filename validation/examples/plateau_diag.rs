@@ -3,12 +3,17 @@
 //! to see how far the timing is from what the data could give.
 //!
 //! `cargo run -p cohortpress-validation --example plateau_diag -- SEED [MODE]`
-//! MODE: obs (default), tissue (true tissue mass, same days), bw (true body weight, same days),
-//! tissue_daily (true tissue every day).
+//! MODE: obs (default), tissue (true tissue mass, same days), tissue_noise (true tissue mass plus
+//! the same scale noise), bw (true body weight, same days), tissue_daily (true tissue every
+//! day), cond (per true onset: the onsets with the band at 0.20 and 0.30 %/wk, and whether the
+//! estimate hit), defs (truth applied to body weight instead of tissue), pN (person N day by
+//! day). `-v` lists every scored person.
 
 use cohortpress_metric_api::{Cell, Targets};
 use cohortpress_validation::truth::{self, Archetype, Weighing};
-use cohortpress_validation::{participant_data, run_modules, true_plateau_onset};
+use cohortpress_validation::{
+    participant_data, plateau_onset_with_band, run_modules, true_plateau_onset,
+};
 use std::collections::BTreeMap;
 
 fn main() {
@@ -81,6 +86,19 @@ fn main() {
         }
         let (trend, _) = run_modules(&data, days, days - 1);
         let onset = true_plateau_onset(&p.tissue, &p.bw);
+        if mode == "cond" {
+            if let Some(t) = onset.filter(|t| p.withdrew.is_none_or(|w| w >= t + 28)) {
+                let lo = plateau_onset_with_band(&p.tissue, &p.bw, 0.0020);
+                let hi = plateau_onset_with_band(&p.tissue, &p.bw, 0.0030);
+                let moved = |o: Option<usize>| o.is_none_or(|o| (o as i64 - t as i64).abs() > 14);
+                let data = participant_data(&p, &Targets::default());
+                let (trend, _) = run_modules(&data, days, days - 1);
+                let est = trend.table("periods").and_then(|t| t.rows.iter().find(|r| matches!(&r[0], Cell::Text(k) if k == "plateau")).and_then(|r| match &r[1] { Cell::Text(s) => chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d").ok().map(|d| (d - cohortpress_validation::day0()).num_days()), _ => None }));
+                let hit = est.is_some_and(|e| (e - t as i64).abs() <= 14);
+                println!("{i:3} {:>16} {:>20} t {t} band0.20 {lo:?} band0.30 {hi:?} ILL {} HIT {hit}", p.weighing.name(), p.archetype.name(), moved(lo) || moved(hi));
+            }
+            continue;
+        }
         if mode == "defs" {
             let on_bw = true_plateau_onset(&p.bw, &p.bw);
             if let (Some(a), Some(b)) = (onset, on_bw) {
@@ -163,3 +181,4 @@ fn main() {
     println!("false plateaus {f}/{n} {:?}", falses);
     let _ = (Archetype::ALL, Weighing::ALL);
 }
+
