@@ -18,7 +18,10 @@ use std::collections::BTreeMap;
 
 fn main() {
     let args: Vec<String> = std::env::args().collect();
-    let seed: u64 = args.get(1).and_then(|s| s.parse().ok()).unwrap_or(20_261_202);
+    let seed: u64 = args
+        .get(1)
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(20_261_202);
     let mode = args.get(2).cloned().unwrap_or_else(|| "obs".into());
     let verbose = args.iter().any(|a| a == "-v");
     let days = 180;
@@ -70,16 +73,34 @@ fn main() {
             let s28 = trend.series("weight_slope_28d").unwrap();
             let sl = trend.series("weight_slope").unwrap();
             let shift = p.bw[0] - p.tissue[0];
-            println!("onset {:?} withdrew {:?}", true_plateau_onset(&p.tissue, &p.bw), p.withdrew);
+            println!(
+                "onset {:?} withdrew {:?}",
+                true_plateau_onset(&p.tissue, &p.bw),
+                p.withdrew
+            );
             for d in (7..days - 10).step_by(3) {
                 let band = 0.0025 * (p.tissue[d] + shift) / 7.0;
                 let ts = (p.tissue[d + 7] - p.tissue[d - 7]) / 14.0 / band;
                 let bs = (p.bw[d + 7] - p.bw[d - 7]) / 14.0 / band;
                 let dt = cohortpress_validation::day0() + chrono::Days::new(d as u64);
-                let c28 = s28.points.iter().find(|q| q.date == dt + chrono::Days::new(14)).map(|q| q.value / band);
-                let sm = sl.points.iter().find(|q| q.date == dt).map(|q| q.value / band);
+                let c28 = s28
+                    .points
+                    .iter()
+                    .find(|q| q.date == dt + chrono::Days::new(14))
+                    .map(|q| q.value / band);
+                let sm = sl
+                    .points
+                    .iter()
+                    .find(|q| q.date == dt)
+                    .map(|q| q.value / band);
                 let ob = p.obs.iter().filter(|o| o.day == d).count();
-                println!("{d:3} tissue14 {ts:6.2} bw14 {bs:6.2} est28c {:6.2} smslope {:6.2} loss {:.1}% int {:.0} {ob}", c28.unwrap_or(f64::NAN), sm.unwrap_or(f64::NAN), 100.0*(p.tissue[0]-p.tissue[d])/p.bw[0], p.intake[d]);
+                println!(
+                    "{d:3} tissue14 {ts:6.2} bw14 {bs:6.2} est28c {:6.2} smslope {:6.2} loss {:.1}% int {:.0} {ob}",
+                    c28.unwrap_or(f64::NAN),
+                    sm.unwrap_or(f64::NAN),
+                    100.0 * (p.tissue[0] - p.tissue[d]) / p.bw[0],
+                    p.intake[d]
+                );
             }
             println!("{:?}", trend.table("periods").map(|t| t.rows.clone()));
             return;
@@ -93,18 +114,42 @@ fn main() {
                 let moved = |o: Option<usize>| o.is_none_or(|o| (o as i64 - t as i64).abs() > 14);
                 let data = participant_data(&p, &Targets::default());
                 let (trend, _) = run_modules(&data, days, days - 1);
-                let est = trend.table("periods").and_then(|t| t.rows.iter().find(|r| matches!(&r[0], Cell::Text(k) if k == "plateau")).and_then(|r| match &r[1] { Cell::Text(s) => chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d").ok().map(|d| (d - cohortpress_validation::day0()).num_days()), _ => None }));
+                let est = trend.table("periods").and_then(|t| {
+                    t.rows
+                        .iter()
+                        .find(|r| matches!(&r[0], Cell::Text(k) if k == "plateau"))
+                        .and_then(|r| match &r[1] {
+                            Cell::Text(s) => chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d")
+                                .ok()
+                                .map(|d| (d - cohortpress_validation::day0()).num_days()),
+                            _ => None,
+                        })
+                });
                 let hit = est.is_some_and(|e| (e - t as i64).abs() <= 14);
-                println!("{i:3} {:>16} {:>20} t {t} band0.20 {lo:?} band0.30 {hi:?} ILL {} HIT {hit}", p.weighing.name(), p.archetype.name(), moved(lo) || moved(hi));
+                println!(
+                    "{i:3} {:>16} {:>20} t {t} band0.20 {lo:?} band0.30 {hi:?} ILL {} HIT {hit}",
+                    p.weighing.name(),
+                    p.archetype.name(),
+                    moved(lo) || moved(hi)
+                );
             }
             continue;
         }
         if mode == "defs" {
             let on_bw = true_plateau_onset(&p.bw, &p.bw);
             if let (Some(a), Some(b)) = (onset, on_bw) {
-                println!("{i:3} {:>16} {:>20} tissue {a} bw {b} diff {}", p.weighing.name(), p.archetype.name(), b as i64 - a as i64);
+                println!(
+                    "{i:3} {:>16} {:>20} tissue {a} bw {b} diff {}",
+                    p.weighing.name(),
+                    p.archetype.name(),
+                    b as i64 - a as i64
+                );
             } else if onset.is_some() != on_bw.is_some() {
-                println!("{i:3} {:>16} {:>20} tissue {onset:?} bw {on_bw:?}", p.weighing.name(), p.archetype.name());
+                println!(
+                    "{i:3} {:>16} {:>20} tissue {onset:?} bw {on_bw:?}",
+                    p.weighing.name(),
+                    p.archetype.name()
+                );
             }
             continue;
         }
@@ -154,12 +199,18 @@ fn main() {
     let show = |name: &str, v: &Vec<Option<i64>>| {
         let n = v.len();
         let miss = v.iter().filter(|e| e.is_none()).count();
-        let hit = v.iter().filter(|e| e.is_some_and(|e| e.abs() <= 14)).count();
+        let hit = v
+            .iter()
+            .filter(|e| e.is_some_and(|e| e.abs() <= 14))
+            .count();
         let early = v.iter().filter(|e| e.is_some_and(|e| e < -14)).count();
         let late = v.iter().filter(|e| e.is_some_and(|e| e > 14)).count();
         let mut errs: Vec<i64> = v.iter().flatten().copied().collect();
         errs.sort();
-        let q = |f: f64| errs.get(((errs.len() as f64 - 1.0) * f).round() as usize).copied();
+        let q = |f: f64| {
+            errs.get(((errs.len() as f64 - 1.0) * f).round() as usize)
+                .copied()
+        };
         println!(
             "{name:>20}: n {n:3} hit {:5.1} % | early {early:2} late {late:2} miss {miss:2} | err q10 {:?} q50 {:?} q90 {:?}",
             100.0 * hit as f64 / n.max(1) as f64,
@@ -181,4 +232,3 @@ fn main() {
     println!("false plateaus {f}/{n} {:?}", falses);
     let _ = (Archetype::ALL, Weighing::ALL);
 }
-
