@@ -141,7 +141,9 @@ impl MetricModule for TrendModule {
                 (Harvey 1989; Durbin & Koopman 2012), variances by maximum likelihood, outlier \
                 screening on standardized innovations; Theil–Sen slope with Sen's interval (Sen \
                 1968) as a cross-check; plateau, loss and regain periods by an equivalence-style \
-                test of the mean slope over sliding windows (thresholds are program settings)."
+                test of the mean slope over sliding windows (thresholds are program settings); \
+                plateaus judged on tissue, with the glycogen/water weight implied by the food \
+                log taken out (Hall et al. 2011)."
                 .into(),
             settings: vec![
                 setting(
