@@ -21,6 +21,7 @@ pub mod data;
 pub mod output;
 pub mod protocol;
 pub mod units;
+pub mod view;
 
 pub use data::*;
 pub use output::*;
