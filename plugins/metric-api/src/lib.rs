@@ -18,6 +18,7 @@
 #![warn(missing_docs)]
 
 pub mod data;
+pub mod fixture;
 pub mod output;
 pub mod protocol;
 pub mod units;

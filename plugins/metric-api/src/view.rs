@@ -89,6 +89,33 @@ pub trait Code: Copy + Eq + fmt::Debug + 'static {
     }
 }
 
+impl Code for crate::LabTest {
+    fn all() -> &'static [Self] {
+        use crate::LabTest::*;
+        &[FastingGlucose, Hba1c, Waist, SystolicBp, DiastolicBp]
+    }
+    fn code(self) -> &'static str {
+        use crate::LabTest::*;
+        match self {
+            FastingGlucose => "fasting_glucose",
+            Hba1c => "hba1c",
+            Waist => "waist",
+            SystolicBp => "systolic_bp",
+            DiastolicBp => "diastolic_bp",
+        }
+    }
+    fn label(self) -> &'static str {
+        use crate::LabTest::*;
+        match self {
+            FastingGlucose => "Fasting glucose",
+            Hba1c => "HbA1c",
+            Waist => "Waist",
+            SystolicBp => "Blood pressure (systolic)",
+            DiastolicBp => "Blood pressure (diastolic)",
+        }
+    }
+}
+
 /// Declares an enum of codes with its wire codes and labels, implementing [`Code`],
 /// [`std::str::FromStr`] and [`std::fmt::Display`] (which prints the code).
 ///
@@ -453,6 +480,11 @@ impl RowReader<'_> {
                 self.error(column, "the view does not declare this column".to_string())
             })?;
         Ok(self.row.get(self.idx[k]).unwrap_or(&Cell::Empty))
+    }
+
+    /// `value`, or an error saying that the cell of `column` is empty.
+    pub fn required<T>(&self, column: &str, value: Option<T>) -> Result<T, ViewError> {
+        value.ok_or_else(|| self.error(column, "the cell is empty".to_string()))
     }
 
     /// A number cell.
