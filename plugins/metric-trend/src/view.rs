@@ -289,3 +289,42 @@ impl ModuleView for TrendView {
         w.flags(&self.flags);
     }
 }
+
+fn empty_series(name: &str, unit: &str, step: &str, label: &str) -> Series {
+    Series {
+        name: name.into(),
+        unit: unit.into(),
+        step: step.into(),
+        label: label.into(),
+        points: vec![],
+    }
+}
+
+impl Default for TrendView {
+    /// A trend with no weigh-ins: empty series, every value missing, status
+    /// [`Status::InsufficientData`] (a starting point for building test outputs).
+    fn default() -> Self {
+        use names::*;
+        TrendView {
+            weight_trend: empty_series(WEIGHT_TREND, "kg", "daily", "Weight trend"),
+            weight_slope: empty_series(WEIGHT_SLOPE, "kg/d", "daily", "Weight change per day"),
+            weigh_ins: empty_series(WEIGH_INS, "kg", "irregular", "Weigh-ins"),
+            weight_slope_28d: None,
+            plateau_confidence: None,
+            plateau_onset: None,
+            regain_kg: Interval::default(),
+            regain_confidence: None,
+            regain_verdict: None,
+            periods: vec![],
+            current_weight_kg: Interval::default(),
+            slope_kg_per_week: Interval::default(),
+            theil_sen_slope_kg_per_week: Interval::default(),
+            noise_sd_kg: None,
+            weigh_ins_used: None,
+            outliers_ignored: None,
+            days_since_last_weigh_in: None,
+            status: Status::InsufficientData,
+            flags: vec![],
+        }
+    }
+}
