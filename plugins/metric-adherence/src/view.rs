@@ -232,3 +232,48 @@ impl ModuleView for AdherenceView {
         w.flags(&self.flags);
     }
 }
+
+fn empty_series(name: &str, unit: &str, label: &str) -> Series {
+    Series {
+        name: name.into(),
+        unit: unit.into(),
+        step: "weekly".into(),
+        label: label.into(),
+        points: vec![],
+    }
+}
+
+impl Default for AdherenceView {
+    /// No weeks and every value missing (a starting point for building test outputs).
+    fn default() -> Self {
+        use names::*;
+        AdherenceView {
+            weekly: vec![],
+            weekly_activity_minutes: empty_series(
+                WEEKLY_ACTIVITY_MINUTES,
+                "min",
+                "Activity minutes per week (moderate-equivalent)",
+            ),
+            weekly_weigh_ins: empty_series(WEEKLY_WEIGH_INS, "d", "Days weighed per week"),
+            weekly_food_log_days: empty_series(
+                WEEKLY_FOOD_LOG_DAYS,
+                "d",
+                "Days with a food log per week",
+            ),
+            weigh_ins_per_week: None,
+            food_log_days_per_week: None,
+            activity_minutes_per_week: None,
+            sessions_offered: None,
+            sessions_attended: None,
+            attendance_percent: None,
+            sessions_offered_to_date: None,
+            sessions_attended_to_date: None,
+            attendance_to_date_percent: None,
+            weeks_meeting_activity_target_percent: None,
+            longest_weigh_in_streak_days: None,
+            longest_gap_days: None,
+            days_since_last_record: None,
+            flags: vec![],
+        }
+    }
+}
