@@ -978,7 +978,8 @@ pub fn summary_row(
     results: &ModuleResults,
 ) -> ParticipantSummary {
     let v = results.views();
-    let (trend, adherence, outcomes) = (v.trend.as_ref(), v.adherence.as_ref(), v.outcomes.as_ref());
+    let (trend, adherence, outcomes) =
+        (v.trend.as_ref(), v.adherence.as_ref(), v.outcomes.as_ref());
     let period = plan.period;
     let withdrawn = data.profile.withdrew.is_some_and(|w| w <= period.to);
     let baseline_kg = outcomes

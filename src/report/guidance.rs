@@ -419,12 +419,14 @@ pub fn build(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults) ->
         slope: trend.and_then(|t| est(t.slope_kg_per_week)),
         // The interval of the implied intake; where the module also gives its lower bound as
         // a scalar of its own, the lower (more harmful) of the two is used.
-        implied: energy.and_then(|e| est(e.implied_intake_kcal_per_day)).map(|mut e| {
-            if let Some(l) = energy.and_then(|o| o.implied_intake_lower_kcal_per_day) {
-                e.lower = Some(e.lower.map_or(l, |x| x.min(l)));
-            }
-            e
-        }),
+        implied: energy
+            .and_then(|e| est(e.implied_intake_kcal_per_day))
+            .map(|mut e| {
+                if let Some(l) = energy.and_then(|o| o.implied_intake_lower_kcal_per_day) {
+                    e.lower = Some(e.lower.map_or(l, |x| x.min(l)));
+                }
+                e
+            }),
         balance: energy.and_then(|e| est(e.energy_balance_kcal_per_day)),
         tdee: energy.and_then(|e| e.tdee_kcal_per_day.value),
         intake_need: option_change(options, OptionKind::Intake).map(|x| -x),

@@ -320,12 +320,7 @@ fn latest_plateau(
 ) -> Vec<PlateauView> {
     let recent = period_from - chrono::Duration::days(28);
     energy
-        .and_then(|e| {
-            e.plateau_assessment
-                .iter()
-                .filter(|r| r.end >= recent)
-                .next_back()
-        })
+        .and_then(|e| e.plateau_assessment.iter().rfind(|r| r.end >= recent))
         .map(|r| PlateauView {
             period: format!("{} – {}", fmt::date(r.start), fmt::date(r.end)),
             verdict: plateau_verdict(r.classification).to_string(),

@@ -13,11 +13,11 @@ pub mod truth;
 
 use chrono::{Days, NaiveDate};
 use cohortpress_metric_api::units::{Length, Mass};
-use cohortpress_metric_api::{
-    ActivityEntry, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData,
-    Period, Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
-};
 use cohortpress_metric_api::view::ModuleView;
+use cohortpress_metric_api::{
+    ActivityEntry, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData, Period,
+    Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
+};
 use cohortpress_metric_energy::EnergyModule;
 use cohortpress_metric_energy::view::EnergyView;
 use cohortpress_metric_trend::TrendModule;
@@ -283,9 +283,11 @@ pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
             } else {
                 None
             };
-            let said = trend.regain_verdict.map_or(trend.status == Status::Regaining, |v| {
-                v == RegainVerdict::Regaining
-            });
+            let said = trend
+                .regain_verdict
+                .map_or(trend.status == Status::Regaining, |v| {
+                    v == RegainVerdict::Regaining
+                });
             truth.map(|t| (t, said))
         })
         .flatten();

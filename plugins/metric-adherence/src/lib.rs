@@ -36,9 +36,8 @@
 
 use chrono::{Datelike, Duration, NaiveDate};
 use cohortpress_metric_api::{
-    ActivityEntry, FlagSeverity, Intensity, MetricModule, ModuleContext, ModuleError,
-    ModuleOutput, ModuleSpec, OutputSpec, ParticipantData, Point, Series, SettingKind, SettingSpec,
-    Table,
+    ActivityEntry, FlagSeverity, Intensity, MetricModule, ModuleContext, ModuleError, ModuleOutput,
+    ModuleSpec, OutputSpec, ParticipantData, Point, Series, SettingKind, SettingSpec, Table,
 };
 use std::collections::{BTreeMap, BTreeSet};
 

@@ -36,9 +36,7 @@ fn the_gap_flag_reads_as_its_code() {
     data.weights.retain(|w| w.date < cut);
     data.intake.retain(|w| w.date < cut);
     data.activity.retain(|w| w.date < cut);
-    let out = m
-        .compute(&fixture::context(&m.spec(), &[]), &data)
-        .unwrap();
+    let out = m.compute(&fixture::context(&m.spec(), &[]), &data).unwrap();
     let v = AdherenceView::from_output(&out).unwrap();
     assert_eq!(
         v.flags.iter().map(|f| f.code).collect::<Vec<_>>(),

@@ -550,7 +550,9 @@ pub mod cell {
 
     /// A date as `YYYY-MM-DD`; a missing one is empty.
     pub fn date(d: Option<NaiveDate>) -> Cell {
-        d.map_or(Cell::Empty, |d| Cell::Text(d.format("%Y-%m-%d").to_string()))
+        d.map_or(Cell::Empty, |d| {
+            Cell::Text(d.format("%Y-%m-%d").to_string())
+        })
     }
 
     /// A code; a missing one is empty.
@@ -560,7 +562,9 @@ pub mod cell {
 
     /// `yes` or `no`; a missing one is empty.
     pub fn yes_no(b: Option<bool>) -> Cell {
-        b.map_or(Cell::Empty, |b| Cell::Text(if b { "yes" } else { "no" }.into()))
+        b.map_or(Cell::Empty, |b| {
+            Cell::Text(if b { "yes" } else { "no" }.into())
+        })
     }
 }
 
@@ -588,7 +592,11 @@ impl OutputWriter {
         match self.spec.outputs.iter().find(|o| o.name == name) {
             Some(o) => (o.unit.clone(), o.description.clone()),
             None => {
-                debug_assert!(false, "module `{}` declares no output `{name}`", self.spec.id);
+                debug_assert!(
+                    false,
+                    "module `{}` declares no output `{name}`",
+                    self.spec.id
+                );
                 (String::new(), name.replace('_', " "))
             }
         }
@@ -757,8 +765,11 @@ mod tests {
     }
 
     impl TableRow for Row {
-        const COLUMNS: &'static [(&'static str, &'static str, &'static str)] =
-            &[("kind", "", "Kind"), ("day", "", "Day"), ("x_kg", "kg", "X")];
+        const COLUMNS: &'static [(&'static str, &'static str, &'static str)] = &[
+            ("kind", "", "Kind"),
+            ("day", "", "Day"),
+            ("x_kg", "kg", "X"),
+        ];
         fn read(r: &RowReader<'_>) -> Result<Self, ViewError> {
             Ok(Row {
                 kind: r.code("kind")?,
@@ -793,7 +804,10 @@ mod tests {
         assert_eq!(Kind::Alpha.to_string(), "alpha");
         assert_eq!(Kind::Beta.label(), "Beta two");
         let e = "gamma".parse::<Kind>().unwrap_err();
-        assert_eq!(e.to_string(), "expected one of alpha, beta_two, found `gamma`");
+        assert_eq!(
+            e.to_string(),
+            "expected one of alpha, beta_two, found `gamma`"
+        );
     }
 
     #[test]

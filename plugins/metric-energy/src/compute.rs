@@ -27,11 +27,11 @@ use crate::dynamics::{BETA_AT, BETA_TEF, HallModel, LinearisedModel};
 use crate::equations::{RestingEquation, activity_kcal_net, jackson_2002_body_fat};
 use chrono::Datelike as _;
 use chrono::{Days, NaiveDate};
+use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_api::{
     Cell, Column, FlagSeverity, ModuleContext, ModuleError, ModuleOutput, ParticipantData, Point,
     Series, Sex, Table,
 };
-use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_trend::view::{PeriodKind, TrendView};
 use std::collections::BTreeMap;
 
@@ -1309,7 +1309,12 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
         (Some(l), Some(u)) => (u - l).abs() / (2.0 * Z_95),
         _ => 0.0,
     };
-    for per in p.trend.periods.iter().filter(|x| x.kind == PeriodKind::Plateau) {
+    for per in p
+        .trend
+        .periods
+        .iter()
+        .filter(|x| x.kind == PeriodKind::Plateau)
+    {
         // The whole plateau, with the trend's exact slope interval for it when the period
         // gives one (a longer window measures the intake during the plateau more precisely).
         let during_to = per.end;

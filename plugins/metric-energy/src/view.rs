@@ -417,7 +417,10 @@ impl ModuleView for EnergyView {
         w.scalar(PAL_ESTIMATE, self.pal_estimate);
         w.interval(LOGGED_INTAKE_KCAL_PER_DAY, self.logged_intake_kcal_per_day);
         w.scalar(LOGGED_DAYS, self.logged_days);
-        w.interval(IMPLIED_INTAKE_KCAL_PER_DAY, self.implied_intake_kcal_per_day);
+        w.interval(
+            IMPLIED_INTAKE_KCAL_PER_DAY,
+            self.implied_intake_kcal_per_day,
+        );
         w.scalar(
             IMPLIED_INTAKE_LOWER_KCAL_PER_DAY,
             self.implied_intake_lower_kcal_per_day,
@@ -428,7 +431,10 @@ impl ModuleView for EnergyView {
         );
         w.interval(UNDERREPORTING_PERCENT, self.underreporting_percent);
         w.interval(INTAKE_GAP_KCAL_PER_DAY, self.intake_gap_kcal_per_day);
-        w.interval(ENERGY_BALANCE_KCAL_PER_DAY, self.energy_balance_kcal_per_day);
+        w.interval(
+            ENERGY_BALANCE_KCAL_PER_DAY,
+            self.energy_balance_kcal_per_day,
+        );
         w.interval(FORECAST_WEIGHT_AT_END_KG, self.forecast_weight_at_end_kg);
         w.interval(STEADY_STATE_WEIGHT_KG, self.steady_state_weight_kg);
         w.interval(BODY_FAT_PERCENT_BASELINE, self.body_fat_percent_baseline);

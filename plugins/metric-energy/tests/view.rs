@@ -40,9 +40,7 @@ fn without_weigh_ins_the_view_reads_the_missing_values() {
     let mut data = fixture::participant();
     data.weights.clear();
     let m = EnergyModule;
-    let out = m
-        .compute(&fixture::context(&m.spec(), &[]), &data)
-        .unwrap();
+    let out = m.compute(&fixture::context(&m.spec(), &[]), &data).unwrap();
     let v = EnergyView::from_output(&out).unwrap();
     assert_eq!(v.body_fat_source, BodyFatSource::None);
     assert_eq!(v.tdee_kcal_per_day.value, None);

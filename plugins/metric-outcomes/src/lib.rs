@@ -58,8 +58,8 @@ use cohortpress_metric_api::units::{
     CM_PER_IN, GLUCOSE_MGDL_PER_MMOLL, Mass, hba1c_percent_to_mmolmol,
 };
 use cohortpress_metric_api::{
-    FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError,
-    ModuleOutput, ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
+    FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError, ModuleOutput,
+    ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
 };
 use std::collections::BTreeMap;
 
@@ -299,8 +299,6 @@ pub fn weight_change_class(percent: f64) -> WeightChangeCategory {
     }
 }
 
-
-
 fn test_words(t: LabTest) -> &'static str {
     match t {
         LabTest::FastingGlucose => "fasting glucose",
@@ -494,7 +492,12 @@ impl MetricModule for OutcomesModule {
                     "%",
                     "100·(current − baseline)/baseline; negative = loss",
                 ),
-                OutputSpec::new(names::BMI_BASELINE_KG_M2, "scalar", "kg/m2", "BMI at baseline"),
+                OutputSpec::new(
+                    names::BMI_BASELINE_KG_M2,
+                    "scalar",
+                    "kg/m2",
+                    "BMI at baseline",
+                ),
                 OutputSpec::new(names::BMI_CURRENT_KG_M2, "scalar", "kg/m2", "BMI now"),
                 OutputSpec::new(names::BMI_CHANGE_KG_M2, "scalar", "kg/m2", "BMI change"),
                 OutputSpec::new(names::RATE_KG_PER_WEEK, "scalar", "kg/wk", "trend slope"),
@@ -559,7 +562,12 @@ impl MetricModule for OutcomesModule {
                     "",
                     "mean logged intake below the VLCD limit",
                 ),
-                OutputSpec::new(OutcomesFlag::LowBmi.as_str(), "flag", "", "current BMI under 18.5"),
+                OutputSpec::new(
+                    OutcomesFlag::LowBmi.as_str(),
+                    "flag",
+                    "",
+                    "current BMI under 18.5",
+                ),
                 OutputSpec::new(
                     OutcomesFlag::LabDiabetesRange.as_str(),
                     "flag",
@@ -665,14 +673,24 @@ impl MetricModule for OutcomesModule {
                 ols_slope_per_week(&in_period)
             }
         };
-        output.push_scalar(names::RATE_KG_PER_WEEK, rate, "kg/wk", "Rate of change per week");
+        output.push_scalar(
+            names::RATE_KG_PER_WEEK,
+            rate,
+            "kg/wk",
+            "Rate of change per week",
+        );
         let max_loss = w0.filter(|_| !levels.is_empty()).map(|w0| {
             levels
                 .iter()
                 .map(|(_, l)| 100.0 * (w0 - l) / w0)
                 .fold(0.0, f64::max)
         });
-        output.push_scalar(names::MAX_LOSS_PERCENT, max_loss, "%", "Largest loss so far");
+        output.push_scalar(
+            names::MAX_LOSS_PERCENT,
+            max_loss,
+            "%",
+            "Largest loss so far",
+        );
 
         if let Some(b) = bmi0 {
             let c = who_bmi_class(b);
@@ -686,7 +704,11 @@ impl MetricModule for OutcomesModule {
             let c = weight_change_class(p);
             output.push_text(names::WEIGHT_CHANGE_CATEGORY, c.as_str(), c.label());
         }
-        output.push_text(names::CURRENT_WEIGHT_SOURCE, source.as_str(), source.label());
+        output.push_text(
+            names::CURRENT_WEIGHT_SOURCE,
+            source.as_str(),
+            source.label(),
+        );
 
         // Milestones: first day the trend level is at or below the threshold weight.
         let mut rows = Vec::new();
@@ -841,7 +863,9 @@ impl MetricModule for OutcomesModule {
         for l in latest.values() {
             let category = lab_category(l, profile.sex);
             let (code, severity) = match category {
-                LabCategory::DiabetesRange => (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical),
+                LabCategory::DiabetesRange => {
+                    (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical)
+                }
                 LabCategory::PrediabetesRange => {
                     (OutcomesFlag::LabPrediabetesRange, FlagSeverity::Notice)
                 }

@@ -7,21 +7,20 @@
 //! with expected values worked out in the comments.
 
 use approx::assert_abs_diff_eq;
-use cohortpress_metric_api::view::{Interval, ModuleView};
-use cohortpress_metric_trend::view::TrendView;
 use chrono::{Duration, NaiveDate};
 use cohortpress_metric_api::units::{
     Length, Mass, glucose_mgdl_to_mmoll, hba1c_mmolmol_to_percent, hba1c_percent_to_mmolmol,
 };
+use cohortpress_metric_api::view::{Interval, ModuleView};
 use cohortpress_metric_api::{
     Cell, FlagSeverity, IntakeDay, LabResult, LabTest, MetricModule, ModuleContext, ModuleOutput,
-    ParticipantData, Period, Point, Profile, ProgramInfo, Sex, Targets, UnitSystem,
-    WeighIn,
+    ParticipantData, Period, Point, Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
 };
 use cohortpress_metric_outcomes::{
     OutcomesModule, bmi, eag_mg_dl, fasting_glucose_category, hba1c_category, waist_category,
     weight_change_category, who_bmi_category,
 };
+use cohortpress_metric_trend::view::TrendView;
 use std::collections::BTreeMap;
 
 // ---------------------------------------------------------------------------------------------

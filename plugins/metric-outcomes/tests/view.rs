@@ -5,8 +5,7 @@ use cohortpress_metric_api::view::{ModuleView, check_view};
 use cohortpress_metric_api::{LabTest, MetricModule, fixture};
 use cohortpress_metric_outcomes::OutcomesModule;
 use cohortpress_metric_outcomes::view::{
-    BmiCategory, CurrentWeightSource, LabCategory, OutcomesFlag, OutcomesView,
-    WeightChangeCategory,
+    BmiCategory, CurrentWeightSource, LabCategory, OutcomesFlag, OutcomesView, WeightChangeCategory,
 };
 use cohortpress_metric_trend::TrendModule;
 
@@ -24,7 +23,10 @@ fn the_view_reads_every_declared_output_and_round_trips() {
     // 894); 8 weeks at −0.6 kg/wk bring the trend to about 87.2 kg, a loss of about 4.8 %.
     assert_eq!(v.current_weight_source, CurrentWeightSource::Trend);
     assert_eq!(v.bmi_category_baseline, Some(BmiCategory::ObesityClass1));
-    assert_eq!(v.weight_change_category, Some(WeightChangeCategory::Loss3To5));
+    assert_eq!(
+        v.weight_change_category,
+        Some(WeightChangeCategory::Loss3To5)
+    );
     let reached: Vec<bool> = v.milestones.iter().map(|m| m.reached).collect();
     assert_eq!(reached[..2], [true, false], "3 % reached, 5 % not");
     assert!(v.milestones[0].date_reached.is_some());
@@ -35,7 +37,10 @@ fn the_view_reads_every_declared_output_and_round_trips() {
     assert_eq!(v.labs[0].category, LabCategory::PrediabetesRange);
     assert_eq!(v.labs[1].category, LabCategory::PrediabetesRange);
     let codes: Vec<OutcomesFlag> = v.flags.iter().map(|f| f.code).collect();
-    assert!(codes.contains(&OutcomesFlag::LabPrediabetesRange), "{codes:?}");
+    assert!(
+        codes.contains(&OutcomesFlag::LabPrediabetesRange),
+        "{codes:?}"
+    );
 }
 
 #[test]
@@ -43,13 +48,15 @@ fn without_weigh_ins_the_view_reads_the_missing_values() {
     let mut data = fixture::participant();
     data.weights.clear();
     let m = OutcomesModule;
-    let out = m
-        .compute(&fixture::context(&m.spec(), &[]), &data)
-        .unwrap();
+    let out = m.compute(&fixture::context(&m.spec(), &[]), &data).unwrap();
     let v = OutcomesView::from_output(&out).unwrap();
     assert_eq!(v.baseline_weight_kg, None);
     assert_eq!(v.current_weight_source, CurrentWeightSource::WeighIns);
     assert_eq!(v.bmi_category_current, None);
-    assert!(v.flags.iter().any(|f| f.code == OutcomesFlag::InsufficientData));
+    assert!(
+        v.flags
+            .iter()
+            .any(|f| f.code == OutcomesFlag::InsufficientData)
+    );
     assert_eq!(OutcomesView::from_output(&v.to_output()).unwrap(), v);
 }

@@ -5,11 +5,11 @@
 
 use chrono::NaiveDate;
 use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_api::{
     MetricModule, ModuleContext, ParticipantData, Period, Profile, ProgramInfo, Sex, Targets,
     UnitSystem, WeighIn,
 };
-use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_trend::TrendModule;
 use cohortpress_metric_trend::view::{Status, TrendView};
 use std::collections::BTreeMap;

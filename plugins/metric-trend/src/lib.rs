@@ -26,19 +26,17 @@ pub mod theil_sen;
 pub mod view;
 
 use chrono::{Days, NaiveDate};
+use cohortpress_metric_api::view::TableRow;
 use cohortpress_metric_api::{
-    FlagSeverity, MetricModule, ModuleContext, ModuleError, ModuleOutput, ModuleSpec,
-    OutputSpec, ParticipantData, Point, Series, SettingKind, SettingSpec, Table,
+    FlagSeverity, MetricModule, ModuleContext, ModuleError, ModuleOutput, ModuleSpec, OutputSpec,
+    ParticipantData, Point, Series, SettingKind, SettingSpec, Table,
 };
 use llt::{
     DIFFUSE_KAPPA, OutlierScreen, StatePrior, StepStatus, Z_95, estimate_params, kalman_filter,
     rts_smoother,
 };
 use plateau::{PlateauSettings, WindowKind, classify_window, find_periods};
-use view::{
-    PERIODS_LABEL, PeriodKind, PeriodRow, RegainVerdict, Status, TrendFlag, names,
-};
-use cohortpress_metric_api::view::TableRow;
+use view::{PERIODS_LABEL, PeriodKind, PeriodRow, RegainVerdict, Status, TrendFlag, names};
 
 /// Length of the windows of the `weight_slope_28d` series, days (four whole weeks, so the
 /// weekly weight cycle cancels; REFERENCE §7.3).
@@ -196,7 +194,12 @@ impl MetricModule for TrendModule {
                     "kg/d",
                     "Smoothed rate of change per day with 95 % band",
                 ),
-                OutputSpec::new(names::WEIGH_INS, "series", "kg", "Weigh-ins used for the trend"),
+                OutputSpec::new(
+                    names::WEIGH_INS,
+                    "series",
+                    "kg",
+                    "Weigh-ins used for the trend",
+                ),
                 OutputSpec::new(
                     names::WEIGHT_SLOPE_28D,
                     "series",
@@ -632,7 +635,8 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         .iter()
         .rev()
         .find(|p| p.kind == WindowKind::Plateau && p.end + 3 >= last_idx);
-    if current_plateau.is_some() && matches!(
+    if current_plateau.is_some()
+        && matches!(
             status,
             Status::Stable | Status::Unclear | Status::InsufficientData
         )

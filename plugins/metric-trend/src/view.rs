@@ -280,7 +280,10 @@ impl ModuleView for TrendView {
         w.table(PERIODS, PERIODS_LABEL, &self.periods);
         w.interval(CURRENT_WEIGHT_KG, self.current_weight_kg);
         w.interval(SLOPE_KG_PER_WEEK, self.slope_kg_per_week);
-        w.interval(THEIL_SEN_SLOPE_KG_PER_WEEK, self.theil_sen_slope_kg_per_week);
+        w.interval(
+            THEIL_SEN_SLOPE_KG_PER_WEEK,
+            self.theil_sen_slope_kg_per_week,
+        );
         w.scalar(NOISE_SD_KG, self.noise_sd_kg);
         w.scalar(WEIGH_INS_USED, self.weigh_ins_used);
         w.scalar(OUTLIERS_IGNORED, self.outliers_ignored);

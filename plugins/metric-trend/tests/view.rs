@@ -33,9 +33,7 @@ fn too_few_weigh_ins_still_read_with_the_later_outputs_missing() {
     let m = TrendModule;
     let mut data = fixture::participant();
     data.weights.truncate(2);
-    let out = m
-        .compute(&fixture::context(&m.spec(), &[]), &data)
-        .unwrap();
+    let out = m.compute(&fixture::context(&m.spec(), &[]), &data).unwrap();
     let v = TrendView::from_output(&out).unwrap();
     assert_eq!(v.status, Status::InsufficientData);
     assert_eq!(v.flags[0].code, TrendFlag::InsufficientData);

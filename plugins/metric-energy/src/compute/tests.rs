@@ -3,13 +3,13 @@
 
 use super::*;
 use crate::EnergyModule;
-use cohortpress_metric_trend::view::PeriodRow;
 use crate::equations::mifflin_st_jeor;
 use cohortpress_metric_api::units::{Length, Mass};
 use cohortpress_metric_api::{
     ActivityEntry, IntakeDay, MetricModule, Period, Profile, ProgramInfo, Targets, UnitSystem,
     WeighIn,
 };
+use cohortpress_metric_trend::view::PeriodRow;
 
 fn d(s: &str) -> NaiveDate {
     NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
