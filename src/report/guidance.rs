@@ -33,7 +33,7 @@
 
 use super::format as fmt;
 use crate::modules::ModuleResults;
-use crate::runner::RunPlan;
+use crate::run::execute::RunPlan;
 use chrono::NaiveDate;
 use cohortpress_metric_api::view::Interval;
 use cohortpress_metric_api::{FlagSeverity, ParticipantData, Sex, UnitSystem};
