@@ -59,3 +59,39 @@ impl ModuleResults {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn results(out: cohortpress_metric_api::ModuleOutput) -> ModuleResults {
+        ModuleResults {
+            outputs: vec![(TrendView::MODULE.into(), out)],
+            failures: vec![],
+        }
+    }
+
+    #[test]
+    fn a_module_output_reads_as_its_view() {
+        let v = TrendView::default();
+        assert_eq!(results(v.to_output()).views().trend, Some(v));
+        assert!(
+            results(TrendView::default().to_output())
+                .views()
+                .energy
+                .is_none()
+        );
+    }
+
+    #[cfg(debug_assertions)]
+    #[test]
+    #[should_panic(
+        expected = "module `trend`, output `periods`, column `start`: the column is missing"
+    )]
+    fn a_renamed_column_stops_debug_builds_instead_of_emptying_a_section() {
+        let mut out = TrendView::default().to_output();
+        let periods = out.tables.iter_mut().find(|t| t.name == "periods").unwrap();
+        periods.columns[1].name = "from".into();
+        let _ = results(out).views();
+    }
+}

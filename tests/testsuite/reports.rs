@@ -131,7 +131,9 @@ fn contexts() -> &'static Contexts {
                 .expect("renders");
                 snapshot_html = String::from_utf8(files[0].1.clone()).unwrap();
             }
-            rows.push(cohortpress::run::execute::summary_row(&plan, &data, &results));
+            rows.push(cohortpress::run::execute::summary_row(
+                &plan, &data, &results,
+            ));
             participants.insert(data.profile.id.clone(), report.ctx);
         }
         let opts = cohortpress::group::GroupOptions {
