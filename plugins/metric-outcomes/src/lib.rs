@@ -58,13 +58,22 @@ use cohortpress_metric_api::units::{
     CM_PER_IN, GLUCOSE_MGDL_PER_MMOLL, Mass, hba1c_percent_to_mmolmol,
 };
 use cohortpress_metric_api::{
-    Cell, Column, FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError,
-    ModuleOutput, ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
+    FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError, ModuleOutput,
+    ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
 };
 use std::collections::BTreeMap;
 
 /// Id of this module in `program.yaml`.
 pub const MODULE_ID: &str = "outcomes";
+
+pub mod view;
+
+use cohortpress_metric_api::view::{ModuleView, TableRow};
+use cohortpress_metric_trend::view::TrendView;
+use view::{
+    BmiCategory, CurrentWeightSource, LABS_LABEL, LabCategory, LabRow, MILESTONES_LABEL,
+    MilestoneRow, OutcomesFlag, WeightChangeCategory, names,
+};
 
 /// Id of the module whose outputs this one reads.
 pub const TREND_MODULE: &str = "trend";
@@ -120,18 +129,24 @@ pub fn bmi(kg: f64, m: f64) -> f64 {
 /// assert_eq!(who_bmi_category(25.0).0, "overweight");
 /// ```
 pub fn who_bmi_category(bmi: f64) -> (&'static str, &'static str) {
+    let c = who_bmi_class(bmi);
+    (c.as_str(), c.label())
+}
+
+/// WHO adult BMI class of `bmi` (kg/m²); see [`who_bmi_category`].
+pub fn who_bmi_class(bmi: f64) -> BmiCategory {
     if at_least(bmi, 40.0) {
-        ("obesity_class_3", "obesity class III")
+        BmiCategory::ObesityClass3
     } else if at_least(bmi, 35.0) {
-        ("obesity_class_2", "obesity class II")
+        BmiCategory::ObesityClass2
     } else if at_least(bmi, 30.0) {
-        ("obesity_class_1", "obesity class I")
+        BmiCategory::ObesityClass1
     } else if at_least(bmi, 25.0) {
-        ("overweight", "overweight (pre-obese)")
+        BmiCategory::Overweight
     } else if at_least(bmi, 18.5) {
-        ("normal", "normal weight")
+        BmiCategory::Normal
     } else {
-        ("underweight", "underweight")
+        BmiCategory::Underweight
     }
 }
 
@@ -152,12 +167,16 @@ pub fn who_bmi_category(bmi: f64) -> (&'static str, &'static str) {
 /// assert_eq!(hba1c_category(6.5), "diabetes_range");
 /// ```
 pub fn hba1c_category(percent: f64) -> &'static str {
+    hba1c_class(percent).as_str()
+}
+
+fn hba1c_class(percent: f64) -> LabCategory {
     if at_least(percent, 6.5) {
-        "diabetes_range"
+        LabCategory::DiabetesRange
     } else if at_least(percent, 5.7) {
-        "prediabetes_range"
+        LabCategory::PrediabetesRange
     } else {
-        "normal"
+        LabCategory::Normal
     }
 }
 
@@ -187,13 +206,17 @@ pub fn hba1c_category(percent: f64) -> &'static str {
 /// assert_eq!(fasting_glucose_category(7.0), "diabetes_range");
 /// ```
 pub fn fasting_glucose_category(mmol_l: f64) -> &'static str {
+    fasting_glucose_class(mmol_l).as_str()
+}
+
+fn fasting_glucose_class(mmol_l: f64) -> LabCategory {
     let mg_dl = mmol_l * GLUCOSE_MGDL_PER_MMOLL;
     if at_least(mg_dl, 126.0) {
-        "diabetes_range"
+        LabCategory::DiabetesRange
     } else if at_least(mg_dl, 100.0) {
-        "prediabetes_range"
+        LabCategory::PrediabetesRange
     } else {
-        "normal"
+        LabCategory::Normal
     }
 }
 
@@ -205,16 +228,20 @@ pub fn fasting_glucose_category(mmol_l: f64) -> &'static str {
 /// Men: > 94 cm increased, > 102 cm substantially increased; women: > 80 cm and > 88 cm
 /// (WHO expert consultation on waist circumference, 2008, published 2011; from memory).
 pub fn waist_category(cm: f64, sex: Sex) -> &'static str {
+    waist_class(cm, sex).as_str()
+}
+
+fn waist_class(cm: f64, sex: Sex) -> LabCategory {
     let (increased, substantially) = match sex {
         Sex::Male => (94.0, 102.0),
         Sex::Female => (80.0, 88.0),
     };
     if cm > substantially + CUT_EPS {
-        "substantially_increased_risk"
+        LabCategory::SubstantiallyIncreasedRisk
     } else if cm > increased + CUT_EPS {
-        "increased_risk"
+        LabCategory::IncreasedRisk
     } else {
-        "not_increased_risk"
+        LabCategory::NotIncreasedRisk
     }
 }
 
@@ -250,41 +277,25 @@ pub fn eag_mg_dl(a1c_percent: f64) -> f64 {
 /// assert_eq!(weight_change_category(-5.0).0, "loss_5_to_7");
 /// ```
 pub fn weight_change_category(percent: f64) -> (&'static str, &'static str) {
+    let c = weight_change_class(percent);
+    (c.as_str(), c.label())
+}
+
+/// Weight-change category of a change in % of baseline; see [`weight_change_category`].
+pub fn weight_change_class(percent: f64) -> WeightChangeCategory {
     let loss = -percent;
     if at_least(percent, 3.0) {
-        ("gain_3_or_more", "gain of 3 % or more")
+        WeightChangeCategory::Gain3OrMore
     } else if at_least(loss, 10.0) {
-        ("loss_10_or_more", "loss of 10 % or more")
+        WeightChangeCategory::Loss10OrMore
     } else if at_least(loss, 7.0) {
-        ("loss_7_to_10", "loss of 7 % to under 10 %")
+        WeightChangeCategory::Loss7To10
     } else if at_least(loss, 5.0) {
-        ("loss_5_to_7", "loss of 5 % to under 7 %")
+        WeightChangeCategory::Loss5To7
     } else if at_least(loss, 3.0) {
-        ("loss_3_to_5", "loss of 3 % to under 5 %")
+        WeightChangeCategory::Loss3To5
     } else {
-        ("stable", "stable (within 3 %)")
-    }
-}
-
-fn category_label(code: &str) -> &'static str {
-    match code {
-        "normal" => "normal range",
-        "prediabetes_range" => "in the prediabetes range",
-        "diabetes_range" => "in the diabetes range",
-        "not_increased_risk" => "not increased",
-        "increased_risk" => "increased",
-        "substantially_increased_risk" => "substantially increased",
-        _ => "recorded",
-    }
-}
-
-fn test_code(t: LabTest) -> &'static str {
-    match t {
-        LabTest::FastingGlucose => "fasting_glucose",
-        LabTest::Hba1c => "hba1c",
-        LabTest::Waist => "waist",
-        LabTest::SystolicBp => "systolic_bp",
-        LabTest::DiastolicBp => "diastolic_bp",
+        WeightChangeCategory::Stable
     }
 }
 
@@ -299,12 +310,12 @@ fn test_words(t: LabTest) -> &'static str {
 }
 
 /// Category code of one lab result.
-fn lab_category(lab: &LabResult, sex: Sex) -> &'static str {
+fn lab_category(lab: &LabResult, sex: Sex) -> LabCategory {
     match lab.test {
-        LabTest::FastingGlucose => fasting_glucose_category(lab.value),
-        LabTest::Hba1c => hba1c_category(lab.value),
-        LabTest::Waist => waist_category(lab.value, sex),
-        LabTest::SystolicBp | LabTest::DiastolicBp => "recorded",
+        LabTest::FastingGlucose => fasting_glucose_class(lab.value),
+        LabTest::Hba1c => hba1c_class(lab.value),
+        LabTest::Waist => waist_class(lab.value, sex),
+        LabTest::SystolicBp | LabTest::DiastolicBp => LabCategory::Recorded,
     }
 }
 
@@ -463,98 +474,114 @@ impl MetricModule for OutcomesModule {
             ],
             outputs: vec![
                 OutputSpec::new(
-                    "baseline_weight_kg",
+                    names::BASELINE_WEIGHT_KG,
                     "scalar",
                     "kg",
                     "first weigh-in day on or after enrolment",
                 ),
                 OutputSpec::new(
-                    "current_weight_kg",
+                    names::CURRENT_WEIGHT_KG,
                     "scalar",
                     "kg",
                     "trend weight at the end of the period",
                 ),
-                OutputSpec::new("change_kg", "scalar", "kg", "current − baseline"),
+                OutputSpec::new(names::CHANGE_KG, "scalar", "kg", "current − baseline"),
                 OutputSpec::new(
-                    "change_percent",
+                    names::CHANGE_PERCENT,
                     "scalar",
                     "%",
                     "100·(current − baseline)/baseline; negative = loss",
                 ),
-                OutputSpec::new("bmi_baseline_kg_m2", "scalar", "kg/m2", "BMI at baseline"),
-                OutputSpec::new("bmi_current_kg_m2", "scalar", "kg/m2", "BMI now"),
-                OutputSpec::new("bmi_change_kg_m2", "scalar", "kg/m2", "BMI change"),
-                OutputSpec::new("rate_kg_per_week", "scalar", "kg/wk", "trend slope"),
                 OutputSpec::new(
-                    "max_loss_percent",
+                    names::BMI_BASELINE_KG_M2,
+                    "scalar",
+                    "kg/m2",
+                    "BMI at baseline",
+                ),
+                OutputSpec::new(names::BMI_CURRENT_KG_M2, "scalar", "kg/m2", "BMI now"),
+                OutputSpec::new(names::BMI_CHANGE_KG_M2, "scalar", "kg/m2", "BMI change"),
+                OutputSpec::new(names::RATE_KG_PER_WEEK, "scalar", "kg/wk", "trend slope"),
+                OutputSpec::new(
+                    names::MAX_LOSS_PERCENT,
                     "scalar",
                     "%",
                     "largest loss on the trend so far (positive = loss)",
                 ),
                 OutputSpec::new(
-                    "bmi_category_baseline",
+                    names::BMI_CATEGORY_BASELINE,
                     "text",
                     "",
                     "WHO BMI class at baseline",
                 ),
-                OutputSpec::new("bmi_category_current", "text", "", "WHO BMI class now"),
+                OutputSpec::new(names::BMI_CATEGORY_CURRENT, "text", "", "WHO BMI class now"),
                 OutputSpec::new(
-                    "weight_change_category",
+                    names::WEIGHT_CHANGE_CATEGORY,
                     "text",
                     "",
                     "weight-change category",
                 ),
                 OutputSpec::new(
-                    "current_weight_source",
+                    names::CURRENT_WEIGHT_SOURCE,
                     "text",
                     "",
                     "`trend` or `weigh_ins`",
                 ),
                 OutputSpec::new(
-                    "milestones",
+                    names::MILESTONES,
                     "table",
                     "",
                     "3/5/7/10 % milestones and the day each was reached",
                 ),
                 OutputSpec::new(
-                    "labs",
+                    names::LABS,
                     "table",
                     "",
                     "lab values in both units with categories",
                 ),
                 OutputSpec::new(
-                    "fast_loss",
+                    OutcomesFlag::InsufficientData.as_str(),
+                    "flag",
+                    "",
+                    "no weigh-in on or after enrolment yet",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::FastLoss.as_str(),
                     "flag",
                     "",
                     "sustained loss faster than the limit",
                 ),
                 OutputSpec::new(
-                    "low_intake",
+                    OutcomesFlag::LowIntake.as_str(),
                     "flag",
                     "",
                     "mean logged intake below the floor",
                 ),
                 OutputSpec::new(
-                    "very_low_intake",
+                    OutcomesFlag::VeryLowIntake.as_str(),
                     "flag",
                     "",
                     "mean logged intake below the VLCD limit",
                 ),
-                OutputSpec::new("low_bmi", "flag", "", "current BMI under 18.5"),
                 OutputSpec::new(
-                    "lab_diabetes_range",
+                    OutcomesFlag::LowBmi.as_str(),
+                    "flag",
+                    "",
+                    "current BMI under 18.5",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::LabDiabetesRange.as_str(),
                     "flag",
                     "",
                     "latest lab value in the diabetes range",
                 ),
                 OutputSpec::new(
-                    "lab_prediabetes_range",
+                    OutcomesFlag::LabPrediabetesRange.as_str(),
                     "flag",
                     "",
                     "latest lab value in the prediabetes range",
                 ),
                 OutputSpec::new(
-                    "medication_review",
+                    OutcomesFlag::MedicationReview.as_str(),
                     "flag",
                     "",
                     "glucose-lowering medicine with fast loss or low intake",
@@ -570,70 +597,34 @@ impl MetricModule for OutcomesModule {
         data: &ParticipantData,
     ) -> Result<ModuleOutput, ModuleError> {
         let profile = &data.profile;
-        let mut output = ModuleOutput::default();
-        let w = Weights::of(ctx, data);
-        let bmi1 = push_weight_outcomes(&mut output, ctx, data, &w);
-        output.tables.push(milestones_table(w.w0, &w.levels));
-        // Labs up to the end of the period.
-        let labs: Vec<&LabResult> = data
-            .labs
-            .iter()
-            .filter(|l| l.date <= ctx.period.to)
-            .collect();
-        output.tables.push(labs_table(&labs, profile.sex));
-
-        // ---- Flags ----
-        if w.w0.is_none() {
-            output.push_flag(
-                "insufficient_data",
-                FlagSeverity::Info,
-                "No weigh-in on or after enrolment yet, so weight outcomes cannot be shown.",
-            );
-        }
-        let fast = push_fast_loss_flag(&mut output, ctx, &w.levels);
-        let low_intake = push_intake_flags(&mut output, ctx, data);
-        push_low_bmi_flag(&mut output, bmi1);
-        push_lab_flags(&mut output, &labs, profile.sex);
-        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG) && (fast || low_intake) {
-            push_medication_flag(&mut output, fast, low_intake);
-        }
-        Ok(output)
-    }
-}
-
-/// The weights the outcomes are built from.
-struct Weights {
-    /// Daily mean weigh-ins from enrolment to the end of the period.
-    raw: Vec<(NaiveDate, f64)>,
-    /// Starting weight: the first weigh-in day on or after enrolment.
-    w0: Option<f64>,
-    /// Current weight with its interval and where it came from (`trend` or `weigh_ins`).
-    current: Option<f64>,
-    lower: Option<f64>,
-    upper: Option<f64>,
-    source: &'static str,
-    /// Trend levels by day from the baseline day, else the raw daily means.
-    levels: Vec<(NaiveDate, f64)>,
-}
-
-impl Weights {
-    fn of(ctx: &ModuleContext, data: &ParticipantData) -> Weights {
-        let profile = &data.profile;
         let to = ctx.period.to;
-        let trend = ctx.earlier.get(TREND_MODULE);
+        // The trend's output, read through its view (an output that does not read is treated
+        // as no trend, and fails loudly in debug builds).
+        let trend = ctx.earlier.get(TREND_MODULE).and_then(|o| {
+            TrendView::from_output(o)
+                .inspect_err(|e| debug_assert!(false, "{e}"))
+                .ok()
+        });
+        let mut output = ModuleOutput::default();
+
         // Baseline: the first weigh-in day on or after enrolment, mean of that day.
         let raw = daily_means(data, profile.enrolled, to);
         let baseline = raw.first().copied();
         let w0 = baseline.map(|b| b.1);
 
         // Current weight: the trend's, else the last weigh-in day.
-        let trend_current = trend.and_then(|t| t.scalar_full("current_weight_kg"));
+        let trend_current = trend.as_ref().map(|t| t.current_weight_kg);
         let (current, lower, upper, source) = match trend_current {
-            Some(s) if s.value.is_some() => (s.value, s.lower, s.upper, "trend"),
-            _ => (raw.last().map(|r| r.1), None, None, "weigh_ins"),
+            Some(s) if s.value.is_some() => (s.value, s.lower, s.upper, CurrentWeightSource::Trend),
+            _ => (
+                raw.last().map(|r| r.1),
+                None,
+                None,
+                CurrentWeightSource::WeighIns,
+            ),
         };
         // Trend levels from the trend series, else from the raw daily means.
-        let levels: Vec<(NaiveDate, f64)> = match trend.and_then(|t| t.series("weight_trend")) {
+        let levels: Vec<(NaiveDate, f64)> = match trend.as_ref().map(|t| &t.weight_trend) {
             Some(s) if !s.points.is_empty() => {
                 let by_day: BTreeMap<NaiveDate, f64> = s
                     .points
@@ -645,336 +636,284 @@ impl Weights {
             }
             _ => raw.clone(),
         };
-        Weights {
-            raw,
-            w0,
+
+        let m = profile.height.m();
+        let bmi_of = |kg: Option<f64>| kg.filter(|_| m > 0.0).map(|kg| bmi(kg, m));
+        let change = w0.zip(current).map(|(a, b)| b - a);
+        let change_pct = w0.zip(change).map(|(a, c)| 100.0 * c / a);
+        let (bmi0, bmi1) = (bmi_of(w0), bmi_of(current));
+
+        output.push_scalar(names::BASELINE_WEIGHT_KG, w0, "kg", "Starting weight");
+        output.push_interval(
+            names::CURRENT_WEIGHT_KG,
             current,
             lower,
             upper,
-            source,
-            levels,
-        }
-    }
-}
-
-/// Starting and current weight, change, BMI, rate and largest loss, with their categories.
-/// Returns the current BMI.
-fn push_weight_outcomes(
-    output: &mut ModuleOutput,
-    ctx: &ModuleContext,
-    data: &ParticipantData,
-    w: &Weights,
-) -> Option<f64> {
-    let trend = ctx.earlier.get(TREND_MODULE);
-    let Weights {
-        raw,
-        w0,
-        current,
-        lower,
-        upper,
-        source,
-        levels,
-    } = w;
-    let (w0, current, lower, upper, source) = (*w0, *current, *lower, *upper, *source);
-    let m = data.profile.height.m();
-    let bmi_of = |kg: Option<f64>| kg.filter(|_| m > 0.0).map(|kg| bmi(kg, m));
-    let change = w0.zip(current).map(|(a, b)| b - a);
-    let change_pct = w0.zip(change).map(|(a, c)| 100.0 * c / a);
-    let (bmi0, bmi1) = (bmi_of(w0), bmi_of(current));
-
-    output.push_scalar("baseline_weight_kg", w0, "kg", "Starting weight");
-    output.push_interval(
-        "current_weight_kg",
-        current,
-        lower,
-        upper,
-        "kg",
-        "Current weight",
-    );
-    output.push_scalar("change_kg", change, "kg", "Weight change");
-    output.push_scalar("change_percent", change_pct, "%", "Weight change");
-    output.push_scalar("bmi_baseline_kg_m2", bmi0, "kg/m2", "Starting BMI");
-    output.push_scalar("bmi_current_kg_m2", bmi1, "kg/m2", "Current BMI");
-    output.push_scalar(
-        "bmi_change_kg_m2",
-        bmi0.zip(bmi1).map(|(a, b)| b - a),
-        "kg/m2",
-        "BMI change",
-    );
-    let rate = match trend.and_then(|t| t.scalar("slope_kg_per_week")) {
-        Some(r) => Some(r),
-        None => {
-            let in_period: Vec<_> = raw
+            "kg",
+            "Current weight",
+        );
+        output.push_scalar(names::CHANGE_KG, change, "kg", "Weight change");
+        output.push_scalar(names::CHANGE_PERCENT, change_pct, "%", "Weight change");
+        output.push_scalar(names::BMI_BASELINE_KG_M2, bmi0, "kg/m2", "Starting BMI");
+        output.push_scalar(names::BMI_CURRENT_KG_M2, bmi1, "kg/m2", "Current BMI");
+        output.push_scalar(
+            names::BMI_CHANGE_KG_M2,
+            bmi0.zip(bmi1).map(|(a, b)| b - a),
+            "kg/m2",
+            "BMI change",
+        );
+        let rate = match trend.as_ref().and_then(|t| t.slope_kg_per_week.value) {
+            Some(r) => Some(r),
+            None => {
+                let in_period: Vec<_> = raw
+                    .iter()
+                    .copied()
+                    .filter(|(d, _)| *d >= ctx.period.from)
+                    .collect();
+                ols_slope_per_week(&in_period)
+            }
+        };
+        output.push_scalar(
+            names::RATE_KG_PER_WEEK,
+            rate,
+            "kg/wk",
+            "Rate of change per week",
+        );
+        let max_loss = w0.filter(|_| !levels.is_empty()).map(|w0| {
+            levels
                 .iter()
-                .copied()
-                .filter(|(d, _)| *d >= ctx.period.from)
-                .collect();
-            ols_slope_per_week(&in_period)
-        }
-    };
-    output.push_scalar("rate_kg_per_week", rate, "kg/wk", "Rate of change per week");
-    let max_loss = w0.filter(|_| !levels.is_empty()).map(|w0| {
-        levels
-            .iter()
-            .map(|(_, l)| 100.0 * (w0 - l) / w0)
-            .fold(0.0, f64::max)
-    });
-    output.push_scalar("max_loss_percent", max_loss, "%", "Largest loss so far");
-
-    if let Some(b) = bmi0 {
-        let (code, label) = who_bmi_category(b);
-        output.push_text("bmi_category_baseline", code, label);
-    }
-    if let Some(b) = bmi1 {
-        let (code, label) = who_bmi_category(b);
-        output.push_text("bmi_category_current", code, label);
-    }
-    if let Some(p) = change_pct {
-        let (code, label) = weight_change_category(p);
-        output.push_text("weight_change_category", code, label);
-    }
-    output.push_text(
-        "current_weight_source",
-        source,
-        if source == "trend" {
-            "weight trend"
-        } else {
-            "last weigh-in"
-        },
-    );
-
-    bmi1
-}
-
-/// Milestones: first day the trend level is at or below each threshold weight.
-fn milestones_table(w0: Option<f64>, levels: &[(NaiveDate, f64)]) -> Table {
-    let mut rows = Vec::new();
-    for t in MILESTONES_PERCENT {
-        let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
-        let reached = threshold
-            .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
-            .map(|(d, _)| *d);
-        rows.push(vec![
-            Cell::Number(t),
-            threshold.map_or(Cell::Empty, Cell::Number),
-            Cell::Text(if reached.is_some() { "yes" } else { "no" }.into()),
-            reached.map_or(Cell::Empty, |d| Cell::Text(d.to_string())),
-        ]);
-    }
-    Table {
-        name: "milestones".into(),
-        label: "Weight-loss milestones".into(),
-        columns: vec![
-            Column::new("threshold_percent", "%", "Loss of"),
-            Column::new("threshold_weight_kg", "kg", "Weight at or below"),
-            Column::new("reached", "", "Reached"),
-            Column::new("date_reached", "", "First reached on"),
-        ],
-        rows,
-    }
-}
-
-/// Lab results and measurements up to the end of the period, with their categories.
-fn labs_table(labs: &[&LabResult], sex: Sex) -> Table {
-    Table {
-        name: "labs".into(),
-        label: "Lab results and measurements".into(),
-        columns: vec![
-            Column::new("date", "", "Date"),
-            Column::new("test", "", "Test"),
-            Column::new("value", "", "Value"),
-            Column::new("unit", "", "Unit"),
-            Column::new("value_alt", "", "Value (other unit)"),
-            Column::new("unit_alt", "", "Other unit"),
-            Column::new("category", "", "Category"),
-            Column::new("eag_mg_dl", "mg/dL", "Estimated average glucose"),
-        ],
-        rows: labs
-            .iter()
-            .map(|l| {
-                let alt = lab_alt(l);
-                vec![
-                    Cell::Text(l.date.to_string()),
-                    Cell::Text(test_code(l.test).into()),
-                    Cell::Number(l.value),
-                    Cell::Text(l.test.canonical_unit().into()),
-                    alt.map_or(Cell::Empty, |a| Cell::Number(a.0)),
-                    alt.map_or(Cell::Empty, |a| Cell::Text(a.1.into())),
-                    Cell::Text(lab_category(l, sex).into()),
-                    if l.test == LabTest::Hba1c {
-                        Cell::Number(eag_mg_dl(l.value))
-                    } else {
-                        Cell::Empty
-                    },
-                ]
-            })
-            .collect(),
-    }
-}
-
-/// A fast-loss flag when the levels fell faster than the limit over the span, in a span that
-/// ends in the period. Returns whether it was raised.
-fn push_fast_loss_flag(
-    output: &mut ModuleOutput,
-    ctx: &ModuleContext,
-    levels: &[(NaiveDate, f64)],
-) -> bool {
-    let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
-    let span = ctx
-        .setting_f64("fast_loss_span_days", 21.0)
-        .round()
-        .max(1.0) as usize;
-    // Only spans that end in the reporting period: a fast spell months ago was flagged in
-    // that month's report and is not raised again every month after.
-    let daily: Vec<(NaiveDate, f64)> = fill_daily(levels)
-        .into_iter()
-        .filter(|(d, _)| *d <= ctx.period.to)
-        .collect();
-    let fast =
-        fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
-    if let Some((fastest, (d0, d1, rate))) = fast {
-        output.push_flag(
-            "fast_loss",
-            FlagSeverity::Clinical,
-            format!(
-                "Weight came down faster than {} a week over {span} days in a row (most \
-                 recently {d0} to {d1}: about {} a week; fastest about {} a week). Losing \
-                 more than about 1 kg (2 lb) a week for several weeks is worth reviewing \
-                 with a licensed clinician.",
-                kg_lb(limit),
-                kg_lb(rate),
-                kg_lb(fastest),
-            ),
+                .map(|(_, l)| 100.0 * (w0 - l) / w0)
+                .fold(0.0, f64::max)
+        });
+        output.push_scalar(
+            names::MAX_LOSS_PERCENT,
+            max_loss,
+            "%",
+            "Largest loss so far",
         );
-    }
 
-    fast.is_some()
-}
+        if let Some(b) = bmi0 {
+            let c = who_bmi_class(b);
+            output.push_text(names::BMI_CATEGORY_BASELINE, c.as_str(), c.label());
+        }
+        if let Some(b) = bmi1 {
+            let c = who_bmi_class(b);
+            output.push_text(names::BMI_CATEGORY_CURRENT, c.as_str(), c.label());
+        }
+        if let Some(p) = change_pct {
+            let c = weight_change_class(p);
+            output.push_text(names::WEIGHT_CHANGE_CATEGORY, c.as_str(), c.label());
+        }
+        output.push_text(
+            names::CURRENT_WEIGHT_SOURCE,
+            source.as_str(),
+            source.label(),
+        );
 
-/// Low or very low logged intake over the period. Returns whether either was raised.
-fn push_intake_flags(
-    output: &mut ModuleOutput,
-    ctx: &ModuleContext,
-    data: &ParticipantData,
-) -> bool {
-    let profile = &data.profile;
-    let intake: Vec<f64> = data
-        .intake
-        .iter()
-        .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
-        .map(|i| i.kcal)
-        .collect();
-    let mut low_intake = false;
-    if intake.len() >= MIN_INTAKE_DAYS {
-        let mean = intake.iter().sum::<f64>() / intake.len() as f64;
-        let floor = match profile.sex {
-            Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
-            Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
-        };
-        let very_low = ctx.setting_f64("very_low_intake", 800.0);
-        let days = intake.len();
-        // Very low subsumes low: one flag, the more serious one.
-        if mean < very_low {
-            low_intake = true;
-            output.push_flag(
-                "very_low_intake",
-                FlagSeverity::Clinical,
-                format!(
-                    "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                     days, below {very_low:.0} kcal a day. Eating this little is normally \
-                     done only under medical supervision; please review it with a licensed \
-                     clinician."
-                ),
+        // Milestones: first day the trend level is at or below the threshold weight.
+        let mut rows = Vec::new();
+        for t in MILESTONES_PERCENT {
+            let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
+            let reached = threshold
+                .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
+                .map(|(d, _)| *d);
+            rows.push(
+                MilestoneRow {
+                    threshold_percent: t,
+                    threshold_weight_kg: threshold,
+                    reached: reached.is_some(),
+                    date_reached: reached,
+                }
+                .write(),
             );
-        } else if mean < floor {
-            low_intake = true;
-            // Clinical like the very-low flag: intakes below the usual floors are for a
-            // licensed clinician to review (the report's cautions say so).
+        }
+        output.tables.push(Table {
+            name: names::MILESTONES.into(),
+            label: MILESTONES_LABEL.into(),
+            columns: MilestoneRow::columns(),
+            rows,
+        });
+
+        // Labs up to the end of the period.
+        let labs: Vec<&LabResult> = data.labs.iter().filter(|l| l.date <= to).collect();
+        output.tables.push(Table {
+            name: names::LABS.into(),
+            label: LABS_LABEL.into(),
+            columns: LabRow::columns(),
+            rows: labs
+                .iter()
+                .map(|l| {
+                    let alt = lab_alt(l);
+                    LabRow {
+                        date: l.date,
+                        test: l.test,
+                        value: l.value,
+                        unit: l.test.canonical_unit().into(),
+                        value_alt: alt.map(|a| a.0),
+                        unit_alt: alt.map(|a| a.1.into()),
+                        category: lab_category(l, profile.sex),
+                        eag_mg_dl: (l.test == LabTest::Hba1c).then(|| eag_mg_dl(l.value)),
+                    }
+                    .write()
+                })
+                .collect(),
+        });
+
+        // ---- Flags ----
+        if w0.is_none() {
             output.push_flag(
-                "low_intake",
+                OutcomesFlag::InsufficientData.as_str(),
+                FlagSeverity::Info,
+                "No weigh-in on or after enrolment yet, so weight outcomes cannot be shown.",
+            );
+        }
+
+        let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
+        let span = ctx
+            .setting_f64("fast_loss_span_days", 21.0)
+            .round()
+            .max(1.0) as usize;
+        // Only spans that end in the reporting period: a fast spell months ago was flagged in
+        // that month's report and is not raised again every month after.
+        let daily: Vec<(NaiveDate, f64)> = fill_daily(&levels)
+            .into_iter()
+            .filter(|(d, _)| *d <= ctx.period.to)
+            .collect();
+        let fast =
+            fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
+        if let Some((fastest, (d0, d1, rate))) = fast {
+            output.push_flag(
+                OutcomesFlag::FastLoss.as_str(),
                 FlagSeverity::Clinical,
                 format!(
-                    "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                     days, below {floor:.0} kcal a day, a level usually not advised without \
-                     supervision. If the log is complete, consider discussing it with a \
-                     licensed clinician."
+                    "Weight came down faster than {} a week over {span} days in a row (most \
+                     recently {d0} to {d1}: about {} a week; fastest about {} a week). Losing \
+                     more than about 1 kg (2 lb) a week for several weeks is worth reviewing \
+                     with a licensed clinician.",
+                    kg_lb(limit),
+                    kg_lb(rate),
+                    kg_lb(fastest),
                 ),
             );
         }
-    }
 
-    low_intake
-}
+        let intake: Vec<f64> = data
+            .intake
+            .iter()
+            .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
+            .map(|i| i.kcal)
+            .collect();
+        let mut low_intake = false;
+        if intake.len() >= MIN_INTAKE_DAYS {
+            let mean = intake.iter().sum::<f64>() / intake.len() as f64;
+            let floor = match profile.sex {
+                Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
+                Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
+            };
+            let very_low = ctx.setting_f64("very_low_intake", 800.0);
+            let days = intake.len();
+            // Very low subsumes low: one flag, the more serious one.
+            if mean < very_low {
+                low_intake = true;
+                output.push_flag(
+                    OutcomesFlag::VeryLowIntake.as_str(),
+                    FlagSeverity::Clinical,
+                    format!(
+                        "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
+                         days, below {very_low:.0} kcal a day. Eating this little is normally \
+                         done only under medical supervision; please review it with a licensed \
+                         clinician."
+                    ),
+                );
+            } else if mean < floor {
+                low_intake = true;
+                // Clinical like the very-low flag: intakes below the usual floors are for a
+                // licensed clinician to review (the report's cautions say so).
+                output.push_flag(
+                    OutcomesFlag::LowIntake.as_str(),
+                    FlagSeverity::Clinical,
+                    format!(
+                        "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
+                         days, below {floor:.0} kcal a day, a level usually not advised without \
+                         supervision. If the log is complete, consider discussing it with a \
+                         licensed clinician."
+                    ),
+                );
+            }
+        }
 
-/// A BMI below the normal range.
-fn push_low_bmi_flag(output: &mut ModuleOutput, bmi1: Option<f64>) {
-    if let Some(b) = bmi1
-        && who_bmi_category(b).0 == "underweight"
-    {
-        output.push_flag(
-            "low_bmi",
-            FlagSeverity::Clinical,
-            format!(
-                "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
-                     normal range (WHO). Further weight loss should be reviewed with a \
-                     licensed clinician."
-            ),
-        );
-    }
-}
+        if let Some(b) = bmi1
+            && who_bmi_class(b) == BmiCategory::Underweight
+        {
+            output.push_flag(
+                OutcomesFlag::LowBmi.as_str(),
+                FlagSeverity::Clinical,
+                format!(
+                    "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
+                         normal range (WHO). Further weight loss should be reviewed with a \
+                         licensed clinician."
+                ),
+            );
+        }
 
-/// The most recent result of each test in the prediabetes or diabetes range.
-fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Sex) {
-    let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
-    for l in labs {
-        latest.insert(l.test, l);
-    }
-    for l in latest.values() {
-        let category = lab_category(l, sex);
-        let (code, severity) = match category {
-            "diabetes_range" => ("lab_diabetes_range", FlagSeverity::Clinical),
-            "prediabetes_range" => ("lab_prediabetes_range", FlagSeverity::Notice),
-            _ => continue,
-        };
-        let shown = match l.test {
-            LabTest::Hba1c => format!("{:.1} %", l.value),
-            _ => format!(
-                "{:.1} mmol/L ({:.0} mg/dL)",
-                l.value,
-                l.value * GLUCOSE_MGDL_PER_MMOLL
-            ),
-        };
-        output.push_flag(
-            code,
-            severity,
-            format!(
-                "The most recent {} ({shown}, {}) is {} (ADA Standards of Care). \
-                 One result is not a diagnosis; please review it with a licensed clinician.",
-                test_words(l.test),
-                l.date,
-                category_label(category),
-            ),
-        );
-    }
-}
+        let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
+        for l in &labs {
+            latest.insert(l.test, l);
+        }
+        for l in latest.values() {
+            let category = lab_category(l, profile.sex);
+            let (code, severity) = match category {
+                LabCategory::DiabetesRange => {
+                    (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical)
+                }
+                LabCategory::PrediabetesRange => {
+                    (OutcomesFlag::LabPrediabetesRange, FlagSeverity::Notice)
+                }
+                _ => continue,
+            };
+            let shown = match l.test {
+                LabTest::Hba1c => format!("{:.1} %", l.value),
+                _ => format!(
+                    "{:.1} mmol/L ({:.0} mg/dL)",
+                    l.value,
+                    l.value * GLUCOSE_MGDL_PER_MMOLL
+                ),
+            };
+            output.push_flag(
+                code.as_str(),
+                severity,
+                format!(
+                    "The most recent {} ({shown}, {}) is {} (ADA Standards of Care). \
+                     One result is not a diagnosis; please review it with a licensed clinician.",
+                    test_words(l.test),
+                    l.date,
+                    category.label(),
+                ),
+            );
+        }
 
-/// A glucose-lowering medicine with fast loss or low intake: ask for a dose review.
-fn push_medication_flag(output: &mut ModuleOutput, fast: bool, low_intake: bool) {
-    let why = match (fast, low_intake) {
-        (true, true) => "fast weight loss and low logged intake",
-        (true, false) => "fast weight loss",
-        _ => "low logged intake",
-    };
-    output.push_flag(
-        "medication_review",
-        FlagSeverity::Clinical,
-        format!(
-            "The profile notes a glucose-lowering medicine. With {why}, the dose that \
-             suited before may now lower blood sugar too far. Please ask the clinician \
-             who prescribes it whether the dose needs review; do not change it without \
-             their advice."
-        ),
-    );
+        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG)
+            && (fast.is_some() || low_intake)
+        {
+            let why = match (fast.is_some(), low_intake) {
+                (true, true) => "fast weight loss and low logged intake",
+                (true, false) => "fast weight loss",
+                _ => "low logged intake",
+            };
+            output.push_flag(
+                OutcomesFlag::MedicationReview.as_str(),
+                FlagSeverity::Clinical,
+                format!(
+                    "The profile notes a glucose-lowering medicine. With {why}, the dose that \
+                     suited before may now lower blood sugar too far. Please ask the clinician \
+                     who prescribes it whether the dose needs review; do not change it without \
+                     their advice."
+                ),
+            );
+        }
+
+        Ok(output)
+    }
 }
 
 #[cfg(test)]
