@@ -287,8 +287,9 @@ fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
     assert!(
         (out.scalar("logged_intake_kcal_per_day").unwrap() - (true_intake - 400.0)).abs() < 1e-9
     );
+    // The logs are exact here, so the gap is off by the implied intake's error (< 40 above).
     let gap = out.scalar("intake_gap_kcal_per_day").unwrap();
-    assert!((gap - 400.0).abs() < 30.0, "gap {gap}");
+    assert!((gap - 400.0).abs() < 40.0, "gap {gap}");
     // The gap's 95 % interval carries the unknown baseline requirement, so a 400 kcal/d gap
     // does not show that the logs miss more than 300 kcal/d: no flag.
     let g = out.scalar_full("intake_gap_kcal_per_day").unwrap();
