@@ -47,19 +47,21 @@ const MAX_WALK_MIN: f64 = 120.0;
 /// Half-width of the plateau band as a fraction of body weight per week (REFERENCE §7.3,
 /// program configuration rather than a literature constant).
 const PLATEAU_BAND_FRACTION_PER_WEEK: f64 = 0.0025;
-/// SD of a person's physical activity level around `base_pal`: FAO/WHO/UNU 2004 (*Human energy
-/// requirements*) puts sedentary-to-light lifestyles at PAL 1.40–1.69 and active ones at
-/// 1.70–1.99, so ±2 SD = ±0.3 spans a category either side (program choice).
-const PAL_SD: f64 = 0.15;
+/// Default SD of a person's physical activity level around `base_pal` (setting `pal_sd`):
+/// FAO/WHO/UNU 2004 (*Human energy requirements*) puts sedentary-to-light lifestyles at PAL
+/// 1.40–1.69 and active ones at 1.70–1.99, so ±2 SD = ±0.3 spans a category either side
+/// (program choice).
+pub(crate) const PAL_SD: f64 = 0.15;
 /// Relative SD of measured resting energy around the equation's prediction: Mifflin–St Jeor
 /// predicts within ±10 % for about 80 % of adults (Frankenfield et al. 2005, J Am Diet Assoc
 /// 105:775; from memory), i.e. SD ≈ 8 %.
 const RMR_REL_SD: f64 = 0.08;
-/// Prior share of intake left out of food logs, and its SD: self-reported intake falls short of
-/// doubly-labelled-water expenditure by 10–45 % in most studies (Trabulsi & Schoeller 2001, Am J
-/// Physiol Endocrinol Metab 281:E891; from memory), centre 20 %, SD 12 points.
-const UNDERREPORT_PRIOR: f64 = 0.20;
-const UNDERREPORT_SD: f64 = 0.12;
+/// Default prior share of intake left out of food logs, and its SD (settings
+/// `underreporting_prior_percent`, `underreporting_sd_percent`): self-reported intake falls
+/// short of doubly-labelled-water expenditure by 10–45 % in most studies (Trabulsi & Schoeller
+/// 2001, Am J Physiol Endocrinol Metab 281:E891; from memory), centre 20 %, SD 12 points.
+pub(crate) const UNDERREPORT_PRIOR: f64 = 0.20;
+pub(crate) const UNDERREPORT_SD: f64 = 0.12;
 /// Relative SDs of the linearised model's ρ (energy density of weight change; with body fat
 /// unknown to ±4 points the lean share of a change moves by about ±10 %) and ε (the
 /// expenditure slope, through the unknown activity level); program choice.
@@ -79,6 +81,9 @@ const MIN_STEADY_STATE_BMI: f64 = 16.0;
 struct Settings {
     equation: RestingEquation,
     base_pal: f64,
+    pal_sd: f64,
+    underreport_prior: f64,
+    underreport_sd: f64,
     window_days: u64,
     target_loss: f64,
     max_safe_loss: f64,
@@ -101,6 +106,14 @@ impl Settings {
         Ok(Settings {
             equation,
             base_pal: ctx.setting_f64("base_pal", 1.6),
+            pal_sd: ctx.setting_f64("pal_sd", PAL_SD).max(0.001),
+            underreport_prior: ctx.setting_f64(
+                "underreporting_prior_percent",
+                100.0 * UNDERREPORT_PRIOR,
+            ) / 100.0,
+            underreport_sd: (ctx.setting_f64("underreporting_sd_percent", 100.0 * UNDERREPORT_SD)
+                / 100.0)
+                .max(0.001),
             window_days: ctx.setting_f64("window_days", 28.0).round().max(1.0) as u64,
             target_loss: ctx.setting_f64("target_loss_kg_per_week", 0.5),
             max_safe_loss: ctx.setting_f64("max_safe_loss_kg_per_week", 1.0),
@@ -491,7 +504,7 @@ pub(crate) fn run(
     // The baseline requirement EI₀ is not known: RMR × PAL with both uncertain, then updated by
     // the food logs and the weight trend together, with under-reporting as a parameter.
     let withdrew_cut = data.profile.withdrew.map_or(to, |w| w.min(to));
-    let baseline = baseline_requirement(&p, enrolled, withdrew_cut);
+    let baseline = baseline_requirement(&p, &s, enrolled, withdrew_cut);
     let pal_post = (baseline.ei0 / start.rmr0).clamp(1.1, 2.5);
     p.model = HallModel::new(start.bw0, start.fm0, start.rmr0, pal_post);
     p.lin = LinearisedModel::from_baseline(start.bw0, start.fm0, start.rmr0, pal_post);

@@ -2,8 +2,8 @@
 //! from the prior, the food logs and the weight trend.
 
 use super::{
-    MIN_LOGGED_DAYS, PAL_SD, Person, RMR_REL_SD, UNDERREPORT_PRIOR, UNDERREPORT_SD, Z_95,
-    day_after, days_incl, mean_band, window_slope,
+    MIN_LOGGED_DAYS, Person, RMR_REL_SD, Settings, Z_95, day_after, days_incl, mean_band,
+    window_slope,
 };
 use chrono::{Datelike as _, NaiveDate};
 
@@ -180,8 +180,9 @@ fn log_day_cv(p: &Person<'_>, bounds: &[(NaiveDate, NaiveDate)]) -> f64 {
 /// EI₀ and the under-reporting share u from the prior, the food logs and the weight trend.
 ///
 /// # Method
-/// Prior: EI₀ ~ N(RMR₀ × `base_pal`, (RMR₀·`base_pal`·r)²) with r = √((PAL_SD/PAL)² +
-/// RMR_REL_SD²), u ~ N(20 %, 12 points). The record is cut into four-week blocks b; in each
+/// Prior: EI₀ ~ N(RMR₀ × `base_pal`, (RMR₀·`base_pal`·r)²) with r = √((`pal_sd`/PAL)² +
+/// RMR_REL_SD²), u ~ N(`underreporting_prior_percent`, `underreporting_sd_percent`), by
+/// default 20 % ± 12 points. The record is cut into four-week blocks b; in each
 /// the weight trend implies the intake EI₀ + D_b (D_b from the block's mean level and exact
 /// slope, [`Person::implied_intake`]) and the log gives the weekday-balanced mean L_b, so
 ///
@@ -195,9 +196,14 @@ fn log_day_cv(p: &Person<'_>, bounds: &[(NaiveDate, NaiveDate)]) -> f64 {
 /// of L_b on D_b. The joint posterior is evaluated on a grid (exact for this two-parameter
 /// model; Gelman et al. 2013, *Bayesian Data Analysis*, 3rd ed., ch. 3) and summarised by its
 /// marginal means, the variance of EI₀ and the 2.5 % / 97.5 % quantiles of u.
-pub(super) fn baseline_requirement(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate) -> Baseline {
+pub(super) fn baseline_requirement(
+    p: &Person<'_>,
+    s: &Settings,
+    enrolled: NaiveDate,
+    to: NaiveDate,
+) -> Baseline {
     let prior = p.model.ei0;
-    let rel = ((PAL_SD / p.model.pal).powi(2) + RMR_REL_SD * RMR_REL_SD).sqrt();
+    let rel = ((s.pal_sd / p.model.pal).powi(2) + RMR_REL_SD * RMR_REL_SD).sqrt();
     let sd0 = prior * rel;
     let fallback = Baseline {
         ei0: prior,
@@ -221,7 +227,7 @@ pub(super) fn baseline_requirement(p: &Person<'_>, enrolled: NaiveDate, to: Naiv
         for j in 0..n_u {
             let u = u_at(j);
             let keep = 1.0 - u;
-            let mut lp = lp_e - 0.5 * ((u - UNDERREPORT_PRIOR) / UNDERREPORT_SD).powi(2);
+            let mut lp = lp_e - 0.5 * ((u - s.underreport_prior) / s.underreport_sd).powi(2);
             for b in &blocks {
                 let v = b.logged_var
                     + keep * keep * b.change_var
