@@ -244,21 +244,19 @@ impl Imported {
         let source = method(obs);
         match code {
             BODY_WEIGHT => match q {
-                Some((v, "kg")) => {
-                    self.patient(&patient)
-                        .weights
-                        .push((date, time, v, "kg", source))
-                }
+                Some((v, "kg")) => self
+                    .patient(&patient)
+                    .weights
+                    .push((date, time, v, "kg", source)),
                 Some((v, "g")) => {
                     self.patient(&patient)
                         .weights
                         .push((date, time, v / 1000.0, "kg", source))
                 }
-                Some((v, "[lb_av]")) => {
-                    self.patient(&patient)
-                        .weights
-                        .push((date, time, v, "lb", source))
-                }
+                Some((v, "[lb_av]")) => self
+                    .patient(&patient)
+                    .weights
+                    .push((date, time, v, "lb", source)),
                 Some((_, u)) => return bad_unit(self, u),
                 None => return bad_unit(self, "(none)"),
             },

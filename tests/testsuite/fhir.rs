@@ -93,7 +93,13 @@ fn export(report: &cohortpress::check::CheckReport) -> (Value, String) {
                 ("DiastolicBp", _) => DIASTOLIC,
                 (t, _) => panic!("{t}"),
             };
-            obs(code, l.date.to_string(), q(l.value_as_written, u), None, None);
+            obs(
+                code,
+                l.date.to_string(),
+                q(l.value_as_written, u),
+                None,
+                None,
+            );
         }
     }
     (
@@ -198,4 +204,12 @@ fn a_program_exported_as_fhir_and_imported_gives_the_same_metrics() {
     assert_eq!(metrics[0].0, metrics[1].0, "participants.csv differs");
     assert_eq!(metrics[0].1, metrics[1].1, "weekly.csv differs");
     assert_eq!(metrics[0].2, metrics[1].2, "tables.csv differs");
+    // The demo program's clinic weigh-ins got an offset, so the source did travel.
+    assert!(
+        metrics[1]
+            .2
+            .lines()
+            .any(|l| l.contains("source_offsets") && l.contains("clinic")),
+        "no clinic offset in tables.csv"
+    );
 }

@@ -152,7 +152,11 @@ fn identifiability(args: &Args, second_seed: u64) -> String {
         "### Second seed\n\nThe goals again for seed {second_seed} (same command with `--seed \
          {second_seed}`), beside the seed above:\n"
     );
-    let _ = writeln!(s, "| estimate | goal | seed {} | seed {second_seed} |", args.seed);
+    let _ = writeln!(
+        s,
+        "| estimate | goal | seed {} | seed {second_seed} |",
+        args.seed
+    );
     let _ = writeln!(s, "|---|---|---|---|");
     for r in rows().into_iter().filter(|r| r.met.is_some()) {
         let _ = writeln!(

@@ -25,13 +25,13 @@
 
 use crate::dynamics::{BETA_AT, BETA_TEF, HallModel, LinearisedModel};
 use crate::equations::{RestingEquation, activity_kcal_net, jackson_2002_body_fat};
+use baseline::{Baseline, baseline_requirement};
 use chrono::Datelike as _;
 use chrono::{Days, NaiveDate};
 use cohortpress_metric_api::{
     Cell, Column, FlagSeverity, ModuleContext, ModuleError, ModuleOutput, ParticipantData, Point,
     Series, Sex, Table,
 };
-use baseline::{Baseline, baseline_requirement};
 use std::collections::BTreeMap;
 
 /// β = β_TEF + β_AT: the part of an intake change the body gives back (Hall et al. 2011).
@@ -107,10 +107,9 @@ impl Settings {
             equation,
             base_pal: ctx.setting_f64("base_pal", 1.6),
             pal_sd: ctx.setting_f64("pal_sd", PAL_SD).max(0.001),
-            underreport_prior: ctx.setting_f64(
-                "underreporting_prior_percent",
-                100.0 * UNDERREPORT_PRIOR,
-            ) / 100.0,
+            underreport_prior: ctx
+                .setting_f64("underreporting_prior_percent", 100.0 * UNDERREPORT_PRIOR)
+                / 100.0,
             underreport_sd: (ctx.setting_f64("underreporting_sd_percent", 100.0 * UNDERREPORT_SD)
                 / 100.0)
                 .max(0.001),
@@ -905,8 +904,7 @@ fn forecast(
         .next_back()
         .and_then(|(_, b)| Some((b.upper? - b.lower?).abs() / 2.0))
         .unwrap_or(0.0);
-    let intake_sd_at =
-        |d: usize| (cur.balance_sd.powi(2) + (drift_rate * d as f64).powi(2)).sqrt();
+    let intake_sd_at = |d: usize| (cur.balance_sd.powi(2) + (drift_rate * d as f64).powi(2)).sqrt();
     let mut points = vec![];
     if let (Some(i), true) = (cur.implied, horizon > 0) {
         let mid = run_forecast(&|_| i.value);

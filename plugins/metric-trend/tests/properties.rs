@@ -416,7 +416,12 @@ fn spec_settings_have_defaults_and_ranges() {
 }
 
 /// Runs the module on home weigh-ins plus `clinic` readings with the given source.
-fn run_with_clinic(home: &[(i64, f64)], clinic: &[(i64, f64)], source: Option<&str>, to: i64) -> ModuleOutput {
+fn run_with_clinic(
+    home: &[(i64, f64)],
+    clinic: &[(i64, f64)],
+    source: Option<&str>,
+    to: i64,
+) -> ModuleOutput {
     let module = TrendModule;
     let settings = module
         .spec()

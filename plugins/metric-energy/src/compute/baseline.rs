@@ -64,7 +64,12 @@ pub(super) fn balanced_log_mean(
 ) -> Option<(f64, f64, usize)> {
     let mut sum = [0.0_f64; 7];
     let mut n = [0_usize; 7];
-    for i in p.data.intake.iter().filter(|i| i.date >= from && i.date <= to) {
+    for i in p
+        .data
+        .intake
+        .iter()
+        .filter(|i| i.date >= from && i.date <= to)
+    {
         let k = i.date.weekday().num_days_from_monday() as usize;
         sum[k] += i.kcal;
         n[k] += 1;
@@ -76,8 +81,8 @@ pub(super) fn balanced_log_mean(
     }
     let kf = present.len() as f64;
     let mean = present.iter().map(|&k| sum[k] / n[k] as f64).sum::<f64>() / kf;
-    let var = (cv * mean).powi(2) * present.iter().map(|&k| 1.0 / n[k] as f64).sum::<f64>()
-        / (kf * kf);
+    let var =
+        (cv * mean).powi(2) * present.iter().map(|&k| 1.0 / n[k] as f64).sum::<f64>() / (kf * kf);
     Some((mean, var, total))
 }
 
@@ -215,9 +220,8 @@ pub(super) fn baseline_requirement(
         return fallback;
     }
     let n_u = ((U_MAX - U_MIN) / U_STEP).round() as usize + 1;
-    let ei_at = |i: usize| {
-        prior + sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0)
-    };
+    let ei_at =
+        |i: usize| prior + sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0);
     let u_at = |j: usize| U_MIN + U_STEP * j as f64;
     let mut logp = vec![0.0_f64; EI0_STEPS * n_u];
     let mut best = f64::NEG_INFINITY;

@@ -743,12 +743,18 @@ fn logs_that_move_with_the_implied_intake_identify_under_reporting() {
     let uh = steady.scalar_full("underreporting_percent").unwrap();
     let err = |x: &cohortpress_metric_api::Scalar| (x.value.unwrap() - 35.0).abs();
     assert!(err(&us) < 5.0, "{us:?}");
-    assert!(us.lower.unwrap() < 35.0 && 35.0 < us.upper.unwrap(), "{us:?}");
+    assert!(
+        us.lower.unwrap() < 35.0 && 35.0 < us.upper.unwrap(),
+        "{us:?}"
+    );
     // The steady record's interval is honest about what it cannot tell: much wider, and
     // still containing the truth.
     let width = |x: &cohortpress_metric_api::Scalar| x.upper.unwrap() - x.lower.unwrap();
     assert!(width(&uh) > 1.4 * width(&us), "{uh:?} vs {us:?}");
-    assert!(uh.lower.unwrap() < 35.0 && 35.0 < uh.upper.unwrap(), "{uh:?}");
+    assert!(
+        uh.lower.unwrap() < 35.0 && 35.0 < uh.upper.unwrap(),
+        "{uh:?}"
+    );
     // The activity level follows: within 0.08 of the true 1.4 when the logs identify it.
     let pal = stopped.scalar("pal_estimate").unwrap();
     assert!((pal - 1.4).abs() < 0.08, "pal {pal}");
