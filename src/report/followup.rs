@@ -15,7 +15,7 @@ use super::templates::TemplateSet;
 use super::{ProgramView, RenderError, TableView};
 use crate::modules::ModuleResults;
 use crate::program::Format;
-use crate::runner::RunPlan;
+use crate::run::execute::RunPlan;
 use chrono::{Datelike, Months, NaiveDate};
 use cohortpress_metric_api::{FlagSeverity, ParticipantData, Period};
 use serde::{Deserialize, Serialize};

@@ -10,7 +10,7 @@ use crate::group::{ChangeLine, GroupReport, Section, SectionStats};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle,
 };
-use crate::runner::{RunPlan, RunSummary};
+use crate::run::execute::{RunPlan, RunSummary};
 use serde::Serialize;
 
 /// What the group templates see (documented in `report-templates/CONTEXT.md`).

@@ -20,7 +20,7 @@ use crate::group::GroupReport;
 use crate::modules::ModuleResults;
 use crate::program::Format;
 use crate::render::chart::{self, Chart};
-use crate::runner::{RunPlan, RunSummary};
+use crate::run::execute::{RunPlan, RunSummary};
 use cohortpress_metric_api::ParticipantData;
 use serde::Serialize;
 use templates::TemplateSet;

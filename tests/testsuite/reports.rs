@@ -82,7 +82,7 @@ struct Contexts {
 fn contexts() -> &'static Contexts {
     static CTX: OnceLock<Contexts> = OnceLock::new();
     CTX.get_or_init(|| {
-        use cohortpress::cli::{Cli, Command};
+        use cohortpress::cmd::cli::{Cli, Command};
         let root = repo_root().join("sample-program");
         let cli = Cli::try_parse_from([
             "cohortpress",
@@ -96,13 +96,13 @@ fn contexts() -> &'static Contexts {
             panic!("not a run command")
         };
         let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
-        let plan = cohortpress::runner::plan_from_args(&args, today)
+        let plan = cohortpress::run::execute::plan_from_args(&args, today)
             .unwrap_or_else(|(code, d)| panic!("plan: exit {code}: {d:?}"));
         let (dirs, _) = cohortpress::participant::discover(&plan.program);
         let templates = TemplateSet::load(&plan.program).expect("built-in templates load");
         let mut participants = BTreeMap::new();
         let mut rows = Vec::new();
-        let mut summary = cohortpress::runner::RunSummary {
+        let mut summary = cohortpress::run::execute::RunSummary {
             participants: dirs.len(),
             ..Default::default()
         };
@@ -131,7 +131,7 @@ fn contexts() -> &'static Contexts {
                 .expect("renders");
                 snapshot_html = String::from_utf8(files[0].1.clone()).unwrap();
             }
-            rows.push(cohortpress::runner::summary_row(&plan, &data, &results));
+            rows.push(cohortpress::run::execute::summary_row(&plan, &data, &results));
             participants.insert(data.profile.id.clone(), report.ctx);
         }
         let opts = cohortpress::group::GroupOptions {
