@@ -197,6 +197,15 @@ fn identifiability(args: &Args, second_seed: u64) -> String {
             fmt_figure((r.pick)(&ur), r.percent)
         );
     }
+    let _ = writeln!(
+        s,
+        "\nWhere the \"activity level known\" column meets a goal that \"records only\" does \
+         not, the rest of the error is what the records cannot identify: weight change \
+         identifies *changes* in intake, and food logs identify intake only up to the person's \
+         own under-reporting, so for a person whose diet does not change the baseline \
+         requirement and the under-reporting share trade off one for one and the priors decide \
+         between them (`docs/METHODS.md`, §2)."
+    );
     s
 }
 

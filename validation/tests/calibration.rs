@@ -5,7 +5,9 @@
 //!
 //! The floors sit a little below what these seeds measure (VALIDATION.md has the full table),
 //! so ordinary refactoring passes and a real regression does not. Goals not yet met (plateau
-//! onset, under-reporting, expenditure, plateau cause) are guarded at their current level.
+//! onset, under-reporting, expenditure; plateau cause on the second seed) are guarded at their
+//! current level with a margin (under-reporting 5.9 / 6.0 points → 7; expenditure 180 / 167
+//! kcal/d → 200; trend bias 0.1 / 0.0 kg → 0.25).
 
 use cohortpress_validation::{Figure, Summary, run_cohort};
 
@@ -38,13 +40,13 @@ fn check(seed: u64) {
         ("plateau cause decided wrongly", 0.10, false, s.cause_wrong),
         (
             "under-reporting MAE, points",
-            10.0,
+            7.0,
             false,
             s.underreport_mae,
         ),
-        ("expenditure MAE, kcal/d", 220.0, false, s.tdee_mae),
+        ("expenditure MAE, kcal/d", 200.0, false, s.tdee_mae),
         ("trend weight MAE, kg", 0.4, false, s.trend_mae),
-        ("trend weight bias, kg", 0.3, false, s.trend_bias),
+        ("trend weight bias, kg", 0.25, false, s.trend_bias),
     ];
     for (what, floor, at_least, f) in floors {
         let x = v(f, what);
