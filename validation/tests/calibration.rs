@@ -38,12 +38,7 @@ fn check(seed: u64) {
             s.plateau_false,
         ),
         ("plateau cause decided wrongly", 0.10, false, s.cause_wrong),
-        (
-            "under-reporting MAE, points",
-            7.0,
-            false,
-            s.underreport_mae,
-        ),
+        ("under-reporting MAE, points", 7.0, false, s.underreport_mae),
         ("expenditure MAE, kcal/d", 200.0, false, s.tdee_mae),
         ("trend weight MAE, kg", 0.4, false, s.trend_mae),
         ("trend weight bias, kg", 0.25, false, s.trend_bias),

@@ -742,7 +742,7 @@ fn logs_that_move_with_the_implied_intake_identify_under_reporting() {
     let us = stopped.scalar_full("underreporting_percent").unwrap();
     let uh = steady.scalar_full("underreporting_percent").unwrap();
     let err = |x: &cohortpress_metric_api::Scalar| (x.value.unwrap() - 35.0).abs();
-    assert!(err(&us) < 5.0, "{us:?}");
+    assert!(err(us) < 5.0, "{us:?}");
     assert!(
         us.lower.unwrap() < 35.0 && 35.0 < us.upper.unwrap(),
         "{us:?}"
@@ -750,7 +750,7 @@ fn logs_that_move_with_the_implied_intake_identify_under_reporting() {
     // The steady record's interval is honest about what it cannot tell: much wider, and
     // still containing the truth.
     let width = |x: &cohortpress_metric_api::Scalar| x.upper.unwrap() - x.lower.unwrap();
-    assert!(width(&uh) > 1.4 * width(&us), "{uh:?} vs {us:?}");
+    assert!(width(uh) > 1.4 * width(us), "{uh:?} vs {us:?}");
     assert!(
         uh.lower.unwrap() < 35.0 && 35.0 < uh.upper.unwrap(),
         "{uh:?}"
