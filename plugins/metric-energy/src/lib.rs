@@ -178,7 +178,8 @@ impl MetricModule for EnergyModule {
                 "tdee_kcal_per_day",
                 "scalar",
                 "kcal/d",
-                "RMR × base_pal + net activity",
+                "Implied intake minus the energy stored by the weight change; without an implied \
+                 intake, RMR × the estimated activity level + net activity",
             ),
             OutputSpec::new(
                 "logged_intake_kcal_per_day",
