@@ -225,19 +225,24 @@ pub(super) fn baseline_requirement(
     let u_at = |j: usize| U_MIN + U_STEP * j as f64;
     let mut logp = vec![0.0_f64; EI0_STEPS * n_u];
     let mut best = f64::NEG_INFINITY;
-    for i in 0..EI0_STEPS {
-        let ei0 = ei_at(i);
-        let lp_e = -0.5 * ((ei0 - prior) / sd0).powi(2);
-        for j in 0..n_u {
-            let u = u_at(j);
-            let keep = 1.0 - u;
-            let mut lp = lp_e - 0.5 * ((u - s.underreport_prior) / s.underreport_sd).powi(2);
-            for b in &blocks {
-                let v = b.logged_var
-                    + keep * keep * b.change_var
-                    + (UNDERREPORT_BLOCK_SD * b.logged).powi(2);
+    // Each block's variance depends on u only: (1/V, ln V) once per u.
+    let mut inv_ln = vec![(0.0_f64, 0.0_f64); blocks.len()];
+    for j in 0..n_u {
+        let u = u_at(j);
+        let keep = 1.0 - u;
+        let lp_u = -0.5 * ((u - s.underreport_prior) / s.underreport_sd).powi(2);
+        for (b, slot) in blocks.iter().zip(inv_ln.iter_mut()) {
+            let v = b.logged_var
+                + keep * keep * b.change_var
+                + (UNDERREPORT_BLOCK_SD * b.logged).powi(2);
+            *slot = (1.0 / v, v.ln());
+        }
+        for i in 0..EI0_STEPS {
+            let ei0 = ei_at(i);
+            let mut lp = lp_u - 0.5 * ((ei0 - prior) / sd0).powi(2);
+            for (b, (inv, ln)) in blocks.iter().zip(&inv_ln) {
                 let r = b.logged - keep * (ei0 + b.change);
-                lp -= 0.5 * (v.ln() + r * r / v);
+                lp -= 0.5 * (ln + r * r * inv);
             }
             logp[i * n_u + j] = lp;
             best = best.max(lp);
