@@ -69,7 +69,9 @@ fn dispatch(cli: Cli) -> i32 {
         Command::Import {
             format: cohortpress::cmd::cli::ImportFormat::Fhir { files, out, ids },
         } => cohortpress::import::fhir::import_command(&files, &out, ids.as_deref()),
-        Command::Modules { program } => cohortpress::run::execute::modules_command(program.as_deref()),
+        Command::Modules { program } => {
+            cohortpress::run::execute::modules_command(program.as_deref())
+        }
         Command::Templates {
             action: TemplatesAction::Dump { dir },
         } => cohortpress::report::templates::dump_command(&dir),

@@ -18,12 +18,12 @@ use crate::exit_code;
 use crate::group::{self, GroupOptions, ParticipantSummary};
 use crate::modules::{self, ModuleResults, ModuleSet};
 use crate::output::{Access, OutputScope, OutputSet, OutputTarget, Staging, StagingError};
-use crate::run::partial::{
-    self, DiagRecord, InputRecord, ParticipantRecord, RunKey, SummaryRecord, TidyRecord,
-};
 use crate::participant::{self, InputFile, ParticipantDir};
 use crate::program::{self, DefaultPeriod, Format, Program};
 use crate::report;
+use crate::run::partial::{
+    self, DiagRecord, InputRecord, ParticipantRecord, RunKey, SummaryRecord, TidyRecord,
+};
 use crate::run::shard::{self, ShardFile, ShardSpec};
 use crate::tidy;
 use chrono::{Datelike, NaiveDate};

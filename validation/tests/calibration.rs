@@ -5,7 +5,7 @@
 //!
 //! The floors sit a little below what these seeds measure (VALIDATION.md has the full table),
 //! so ordinary refactoring passes and a real regression does not. Goals not yet met (plateau
-//! onset, under-reporting, expenditure; plateau cause on the second seed) are guarded at their
+//! onset, under-reporting, expenditure) are guarded at their
 //! current level with a margin (under-reporting 5.9 / 6.0 points → 7; expenditure 180 / 167
 //! kcal/d → 200; trend bias 0.1 / 0.0 kg → 0.25).
 
@@ -29,11 +29,12 @@ fn check(seed: u64) {
         ("forecast band coverage", 0.90, true, s.forecast_coverage),
         ("regain sensitivity", 0.80, true, s.regain_sensitivity),
         ("regain specificity", 0.95, true, s.regain_specificity),
-        ("plateau onset within ±14 d", 0.40, true, s.plateau_onset_14),
-        ("plateau cause correct", 0.72, true, s.cause_correct),
+        // Measured 48 % (seed 20261202) and 51 % (seed 7) with plateaus judged on tissue.
+        ("plateau onset within ±14 d", 0.44, true, s.plateau_onset_14),
+        ("plateau cause correct", 0.80, true, s.cause_correct),
         (
             "plateaus reported without one",
-            0.20,
+            0.16,
             false,
             s.plateau_false,
         ),
