@@ -18,6 +18,7 @@ pub mod describe;
 pub mod external;
 pub mod registry;
 pub mod run;
+pub mod views;
 
 #[cfg(test)]
 mod tests;
@@ -26,3 +27,4 @@ pub use describe::describe_modules;
 pub use external::ExternalModule;
 pub use registry::{ModuleSet, build_module_set, builtin_modules};
 pub use run::{ModuleFailure, ModuleResults};
+pub use views::BuiltinViews;

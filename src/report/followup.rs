@@ -165,9 +165,8 @@ pub fn for_participant(
                 .collect()
         })
         .unwrap_or_default();
-    let trend = results.output("trend");
-    let outcomes = results.output("outcomes");
-    let energy = results.output("energy");
+    let v = results.views();
+    let (trend, outcomes, energy) = (v.trend.as_ref(), v.outcomes.as_ref(), v.energy.as_ref());
     let period = format!("{} to {}", plan.period.from, plan.period.to);
     let items = flags
         .into_iter()
@@ -190,12 +189,12 @@ pub fn for_participant(
         id: data.profile.id.clone(),
         name: data.profile.name.clone(),
         weight_kg: trend
-            .and_then(|t| t.scalar("current_weight_kg"))
-            .or_else(|| outcomes.and_then(|o| o.scalar("current_weight_kg"))),
-        bmi: outcomes.and_then(|o| o.scalar("bmi_current_kg_m2")),
-        change_percent: outcomes.and_then(|o| o.scalar("change_percent")),
-        rate_kg_per_week: trend.and_then(|t| t.scalar("slope_kg_per_week")),
-        logged_intake_kcal_per_day: energy.and_then(|e| e.scalar("logged_intake_kcal_per_day")),
+            .and_then(|t| t.current_weight_kg.value)
+            .or_else(|| outcomes.and_then(|o| o.current_weight_kg.value)),
+        bmi: outcomes.and_then(|o| o.bmi_current_kg_m2),
+        change_percent: outcomes.and_then(|o| o.change_percent),
+        rate_kg_per_week: trend.and_then(|t| t.slope_kg_per_week.value),
+        logged_intake_kcal_per_day: energy.and_then(|e| e.logged_intake_kcal_per_day.value),
         last_weigh_in: data
             .weights
             .iter()

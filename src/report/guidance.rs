@@ -35,9 +35,11 @@ use super::format as fmt;
 use crate::modules::ModuleResults;
 use crate::run::execute::RunPlan;
 use chrono::NaiveDate;
-use cohortpress_metric_api::{
-    Cell, FlagSeverity, ModuleOutput, ParticipantData, Sex, Table, UnitSystem,
-};
+use cohortpress_metric_api::view::Interval;
+use cohortpress_metric_api::{FlagSeverity, ParticipantData, Sex, UnitSystem};
+use cohortpress_metric_energy::view::{OptionKind, OptionRow};
+use cohortpress_metric_outcomes::view::OutcomesFlag;
+use cohortpress_metric_trend::view::Status;
 use serde::Serialize;
 
 /// Step to which intake amounts are rounded, kcal/d.
@@ -172,16 +174,16 @@ pub enum TrendStatus {
     Insufficient,
 }
 
-impl TrendStatus {
-    /// From the `trend` module's status code.
-    pub fn from_code(code: &str) -> Self {
-        match code {
-            "losing" => TrendStatus::Losing,
-            "plateau" => TrendStatus::Plateau,
-            "regaining" => TrendStatus::Regaining,
-            "stable" => TrendStatus::Stable,
-            "unclear" => TrendStatus::Unclear,
-            _ => TrendStatus::Insufficient,
+impl From<Status> for TrendStatus {
+    /// From the `trend` module's status.
+    fn from(s: Status) -> Self {
+        match s {
+            Status::Losing => TrendStatus::Losing,
+            Status::Plateau => TrendStatus::Plateau,
+            Status::Regaining => TrendStatus::Regaining,
+            Status::Stable => TrendStatus::Stable,
+            Status::Unclear => TrendStatus::Unclear,
+            Status::InsufficientData => TrendStatus::Insufficient,
         }
     }
 }
@@ -341,32 +343,27 @@ struct Est {
     upper: Option<f64>,
 }
 
-fn est(o: Option<&ModuleOutput>, name: &str) -> Option<Est> {
-    let s = o?.scalar_full(name)?;
+fn est(i: Interval) -> Option<Est> {
     Some(Est {
-        value: s.value?,
-        lower: s.lower,
-        upper: s.upper,
+        value: i.value?,
+        lower: i.lower,
+        upper: i.upper,
     })
 }
 
-fn row_num(t: &Table, kind: &str, col: &str) -> Option<f64> {
-    let k = t.columns.iter().position(|c| c.name == "kind")?;
-    let c = t.columns.iter().position(|c| c.name == col)?;
-    let row = t
-        .rows
+/// The change per day of the `kind` option, when the module could compute it.
+fn option_change(options: &[OptionRow], kind: OptionKind) -> Option<f64> {
+    options
         .iter()
-        .find(|r| matches!(r.get(k), Some(Cell::Text(s)) if s == kind))?;
-    match row.get(c)? {
-        Cell::Number(n) if n.is_finite() => Some(*n),
-        _ => None,
-    }
+        .find(|o| o.kind == kind)?
+        .change_per_day
+        .filter(|x| x.is_finite())
 }
 
 /// The state the decision table reads, from the module outputs.
 pub fn state_of(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults) -> State {
-    let trend = results.output("trend");
-    let outcomes = results.output("outcomes");
+    let v = results.views();
+    let outcomes = v.outcomes.as_ref();
     State {
         withdrawn: data.profile.withdrew.is_some_and(|w| w <= plan.period.to),
         clinical_flags: results
@@ -376,14 +373,13 @@ pub fn state_of(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults)
             .filter(|f| f.severity == FlagSeverity::Clinical)
             .map(|f| f.code.clone())
             .collect(),
-        bmi: outcomes.and_then(|o| o.scalar("bmi_current_kg_m2")),
-        change_percent: outcomes.and_then(|o| o.scalar("change_percent")),
+        bmi: outcomes.and_then(|o| o.bmi_current_kg_m2),
+        change_percent: outcomes.and_then(|o| o.change_percent),
         target_percent: data.profile.targets.weight_change_percent,
-        status: TrendStatus::from_code(
-            trend
-                .and_then(|t| t.text("status"))
-                .unwrap_or("insufficient_data"),
-        ),
+        status: v
+            .trend
+            .as_ref()
+            .map_or(TrendStatus::Insufficient, |t| t.status.into()),
     }
 }
 
@@ -410,41 +406,37 @@ pub fn build(plan: &RunPlan, data: &ParticipantData, results: &ModuleResults) ->
     let t = Thresholds::from_plan(plan);
     let state = state_of(plan, data, results);
     let phase = decide(&state, &t);
-    let trend = results.output("trend");
-    let energy = results.output("energy");
-    let options = energy.and_then(|e| e.table("options"));
+    let v = results.views();
+    let (trend, energy) = (v.trend.as_ref(), v.energy.as_ref());
+    let options = energy.map_or(&[][..], |e| &e.options[..]);
     let facts = Facts {
         units: plan.program.info.units,
         sex: data.profile.sex,
         withdrew: data.profile.withdrew,
         weight_kg: trend
-            .and_then(|o| o.scalar("current_weight_kg"))
-            .or_else(|| {
-                results
-                    .output("outcomes")
-                    .and_then(|o| o.scalar("current_weight_kg"))
-            }),
-        slope: est(trend, "slope_kg_per_week"),
+            .and_then(|t| t.current_weight_kg.value)
+            .or_else(|| v.outcomes.as_ref().and_then(|o| o.current_weight_kg.value)),
+        slope: trend.and_then(|t| est(t.slope_kg_per_week)),
         // The interval of the implied intake; where the module also gives its lower bound as
         // a scalar of its own, the lower (more harmful) of the two is used.
-        implied: est(energy, "implied_intake_kcal_per_day").map(|mut e| {
-            if let Some(l) = energy.and_then(|o| o.scalar("implied_intake_lower_kcal_per_day")) {
-                e.lower = Some(e.lower.map_or(l, |x| x.min(l)));
-            }
-            e
-        }),
-        balance: est(energy, "energy_balance_kcal_per_day"),
-        tdee: energy.and_then(|e| e.scalar("tdee_kcal_per_day")),
-        intake_need: options
-            .and_then(|o| row_num(o, "intake", "change_per_day"))
-            .map(|x| -x),
-        walk_need: options.and_then(|o| row_num(o, "walking", "change_per_day")),
+        implied: energy
+            .and_then(|e| est(e.implied_intake_kcal_per_day))
+            .map(|mut e| {
+                if let Some(l) = energy.and_then(|o| o.implied_intake_lower_kcal_per_day) {
+                    e.lower = Some(e.lower.map_or(l, |x| x.min(l)));
+                }
+                e
+            }),
+        balance: energy.and_then(|e| est(e.energy_balance_kcal_per_day)),
+        tdee: energy.and_then(|e| e.tdee_kcal_per_day.value),
+        intake_need: option_change(options, OptionKind::Intake).map(|x| -x),
+        walk_need: option_change(options, OptionKind::Walking),
         weigh_ins_target: data.profile.targets.weigh_ins_per_week,
         activity_target: data.profile.targets.activity_minutes_per_week,
         lab_in_diabetes_range: state
             .clinical_flags
             .iter()
-            .any(|c| c == "lab_diabetes_range"),
+            .any(|c| c == OutcomesFlag::LabDiabetesRange.as_str()),
         glucose_lowering: data
             .profile
             .flags

@@ -5,15 +5,18 @@ use super::format as fmt;
 use super::guidance::{self, GuidanceView};
 use super::{ChartView, Kv, TableView, cautions};
 use crate::diag::{Diagnostic, Severity};
-use crate::modules::ModuleResults;
+use crate::modules::{BuiltinViews, ModuleResults, views::BUILTIN};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
 };
 use crate::run::execute::RunPlan;
 use chrono::NaiveDate;
-use cohortpress_metric_api::{
-    Cell, FlagSeverity, ModuleOutput, ParticipantData, Table, UnitSystem,
-};
+use cohortpress_metric_adherence::view::AdherenceView as AdherenceResults;
+use cohortpress_metric_api::view::{Code, Interval};
+use cohortpress_metric_api::{FlagSeverity, ParticipantData, Profile, UnitSystem};
+use cohortpress_metric_energy::view::{EnergyView as EnergyResults, PlateauCause, PlateauRow};
+use cohortpress_metric_outcomes::view::{BmiCategory, OutcomesView};
+use cohortpress_metric_trend::view::{PeriodKind, Status, TrendView};
 use serde::Serialize;
 
 /// What the participant templates see (documented field by field in
@@ -139,41 +142,16 @@ pub struct ParticipantReport {
     pub activity_chart: Option<Chart>,
 }
 
-fn cell_text(c: &Cell) -> String {
-    match c {
-        Cell::Number(n) => fmt::fixed(*n, if n.fract() == 0.0 { 0 } else { 1 }),
-        Cell::Text(t) => t.clone(),
-        Cell::Empty => String::new(),
+/// A number as the module tables print it: whole numbers without decimals, others with one;
+/// a missing one is empty.
+fn num_text(x: Option<f64>) -> String {
+    match x {
+        Some(n) => fmt::fixed(n, if n.fract() == 0.0 { 0 } else { 1 }),
+        None => String::new(),
     }
 }
 
-fn col(t: &Table, name: &str) -> Option<usize> {
-    t.columns.iter().position(|c| c.name == name)
-}
-
-fn cell<'a>(t: &'a Table, row: &'a [Cell], name: &str) -> Option<&'a Cell> {
-    col(t, name).and_then(|i| row.get(i))
-}
-
-fn cell_num(t: &Table, row: &[Cell], name: &str) -> Option<f64> {
-    match cell(t, row, name)? {
-        Cell::Number(n) => Some(*n),
-        _ => None,
-    }
-}
-
-fn cell_str(t: &Table, row: &[Cell], name: &str) -> String {
-    cell(t, row, name).map(cell_text).unwrap_or_default()
-}
-
-fn cell_date(t: &Table, row: &[Cell], name: &str) -> Option<NaiveDate> {
-    match cell(t, row, name)? {
-        Cell::Text(s) => NaiveDate::parse_from_str(s, "%Y-%m-%d").ok(),
-        _ => None,
-    }
-}
-
-/// Builds the participant report.
+/// Builds the participant report, section by section.
 pub fn build(
     plan: &RunPlan,
     data: &ParticipantData,
@@ -182,11 +160,81 @@ pub fn build(
 ) -> ParticipantReport {
     let units = plan.program.info.units;
     let p = &data.profile;
-    let trend = results.output("trend");
-    let energy = results.output("energy");
-    let adherence = results.output("adherence");
-    let outcomes = results.output("outcomes");
+    let v = results.views();
+    let left = p.withdrew.filter(|w| *w <= plan.period.to);
 
+    // Weight chart, with the target weight when there is a starting weight.
+    let target_kg = v
+        .outcomes
+        .as_ref()
+        .and_then(|o| o.baseline_weight_kg)
+        .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
+    let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan);
+
+    let (energy_view, energy_chart) = match &v.energy {
+        Some(e) => {
+            let (view, chart) = energy_section(e);
+            (Some(view), chart)
+        }
+        None => (None, None),
+    };
+    let (adherence_view, activity_chart) = match &v.adherence {
+        Some(a) => {
+            let (view, chart) = adherence_section(
+                a,
+                p.targets.activity_minutes_per_week,
+                &activity_unread(diags),
+            );
+            (Some(view), Some(chart))
+        }
+        None => (None, None),
+    };
+
+    let guidance = guidance::build(plan, data, results);
+    // Plateau readings belong with advice to restart a loss; for anyone else (past the target,
+    // regaining, withdrawn, for a clinician first) they would invite the wrong action.
+    let plateaus = if guidance.show_plateaus {
+        latest_plateau(v.energy.as_ref(), plan.period.from, units)
+    } else {
+        Vec::new()
+    };
+
+    let ctx = ParticipantReportContext {
+        program: super::ProgramView::new(plan),
+        participant: PersonView {
+            id: p.id.clone(),
+            display_name: p.name.clone().unwrap_or_else(|| p.id.clone()),
+            facts: person_facts(p, units),
+        },
+        headline: headline(v.trend.as_ref(), v.outcomes.as_ref(), units, left),
+        summary: summary(&v, units),
+        milestones: milestones(v.outcomes.as_ref()),
+        weight_chart: weight_view,
+        energy: energy_view,
+        adherence: adherence_view,
+        plateaus,
+        guidance,
+        labs: v.outcomes.as_ref().and_then(labs),
+        flags: flags(results),
+        data_notes: data_notes(diags),
+        module_failures: results
+            .failures
+            .iter()
+            .map(|f| format!("{}: {}", f.module, f.message))
+            .collect(),
+        extra: extra_modules(results),
+        cautions: cautions::participant(&guidance::Thresholds::from_plan(plan)),
+    };
+    ParticipantReport {
+        ctx,
+        weight_chart,
+        energy_chart,
+        activity_chart,
+    }
+}
+
+/// Facts about the participant (id, enrolment, height, groups).
+fn person_facts(p: &Profile, units: UnitSystem) -> Vec<Kv> {
     let mut facts = vec![Kv::new("Participant id", &p.id)];
     facts.push(Kv::new("Enrolled", &fmt::date(p.enrolled)));
     if let Some(w) = p.withdrew {
@@ -196,17 +244,26 @@ pub fn build(
     for (k, v) in &p.groups {
         facts.push(Kv::new(&fmt::capitalise(k), v));
     }
+    facts
+}
 
-    // Summary figures.
+/// Key figures: current and starting weight, change, recent rate, BMI.
+fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
+    let (trend, outcomes) = (v.trend.as_ref(), v.outcomes.as_ref());
     let mut summary = Vec::new();
-    let sc = |o: Option<&ModuleOutput>, n: &str| o.and_then(|o| o.scalar(n));
-    if let Some(w) = sc(trend, "current_weight_kg").or(sc(outcomes, "current_weight_kg")) {
+    if let Some(w) = trend
+        .and_then(|t| t.current_weight_kg.value)
+        .or(outcomes.and_then(|o| o.current_weight_kg.value))
+    {
         summary.push(Kv::new("Current weight (trend)", &fmt::weight(w, units)));
     }
-    if let Some(b) = sc(outcomes, "baseline_weight_kg") {
+    if let Some(b) = outcomes.and_then(|o| o.baseline_weight_kg) {
         summary.push(Kv::new("Starting weight", &fmt::weight(b, units)));
     }
-    if let (Some(c), Some(pc)) = (sc(outcomes, "change_kg"), sc(outcomes, "change_percent")) {
+    if let (Some(c), Some(pc)) = (
+        outcomes.and_then(|o| o.change_kg),
+        outcomes.and_then(|o| o.change_percent),
+    ) {
         summary.push(Kv::new(
             "Change since start",
             &format!(
@@ -216,139 +273,111 @@ pub fn build(
             ),
         ));
     }
-    if let Some(r) = sc(trend, "slope_kg_per_week") {
+    if let Some(r) = trend.and_then(|t| t.slope_kg_per_week.value) {
         summary.push(Kv::new(
             "Recent rate (last 4 weeks)",
             &fmt::rate_per_week(r, units),
         ));
     }
-    if let Some(bmi) = sc(outcomes, "bmi_current_kg_m2") {
-        let code = outcomes
-            .and_then(|o| o.texts.iter().find(|t| t.name == "bmi_category_current"))
-            .map(|t| t.value.as_str())
-            .unwrap_or_default();
+    if let Some(o) = outcomes
+        && let Some(bmi) = o.bmi_current_kg_m2
+    {
         summary.push(Kv::new(
             "BMI",
-            &format!("{} kg/m²{}", fmt::fixed(bmi, 1), bmi_range_words(code)),
+            &format!(
+                "{} kg/m²{}",
+                fmt::fixed(bmi, 1),
+                bmi_range_words(o.bmi_category_current)
+            ),
         ));
     }
+    summary
+}
 
-    let left = p.withdrew.filter(|w| *w <= plan.period.to);
-    let headline = headline(trend, outcomes, units, left);
-
-    let milestones = outcomes
-        .and_then(|o| o.table("milestones"))
-        .map(|t| {
-            t.rows
+/// Milestones (3, 5, 7, 10 % loss) and when they were reached.
+fn milestones(outcomes: Option<&OutcomesView>) -> Vec<MilestoneView> {
+    outcomes
+        .map(|o| {
+            o.milestones
                 .iter()
-                .map(|r| MilestoneView {
-                    label: format!("{} % loss", cell_str(t, r, "threshold_percent")),
-                    reached: cell_str(t, r, "reached") == "yes",
-                    reached_on: cell_date(t, r, "date_reached")
-                        .map(fmt::date)
-                        .unwrap_or_default(),
+                .map(|m| MilestoneView {
+                    label: format!("{} % loss", num_text(Some(m.threshold_percent))),
+                    reached: m.reached,
+                    reached_on: m.date_reached.map(fmt::date).unwrap_or_default(),
                 })
                 .collect()
         })
-        .unwrap_or_default();
+        .unwrap_or_default()
+}
 
-    // Weight chart.
-    let target_kg = sc(outcomes, "baseline_weight_kg")
-        .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
-    let (weight_chart, weight_view) = weight_chart(trend, energy, target_kg, units, plan);
-
-    // Energy.
-    let (energy_view, energy_chart) = match energy {
-        Some(e) => {
-            let (v, c) = energy_section(e);
-            (Some(v), c)
-        }
-        None => (None, None),
-    };
-
-    // Adherence.
-    let (adherence_view, activity_chart) = match adherence {
-        Some(a) => {
-            let (v, c) = adherence_section(
-                a,
-                p.targets.activity_minutes_per_week,
-                &activity_unread(diags),
-            );
-            (Some(v), Some(c))
-        }
-        None => (None, None),
-    };
-
-    // Plateaus and options.
-    // Only plateaus that reach into the last four weeks before the period: older ones are
-    // history (still shaded on the weight chart), not something to act on now.
-    let recent = plan.period.from - chrono::Duration::days(28);
-    let plateaus: Vec<PlateauView> = energy
-        .and_then(|e| e.table("plateau_assessment"))
-        .map(|t| {
-            t.rows
-                .iter()
-                .filter(|r| cell_date(t, r, "end").is_none_or(|end| end >= recent))
-                .map(|r| {
-                    let period = match (cell_date(t, r, "start"), cell_date(t, r, "end")) {
-                        (Some(a), Some(b)) => format!("{} – {}", fmt::date(a), fmt::date(b)),
-                        _ => String::new(),
-                    };
-                    let verdict = match cell_str(t, r, "classification").as_str() {
-                        "expected_slowdown" => "The slowdown expected at your new, lower weight: your body now uses less energy than when you started.".to_string(),
-                        "intake_drift" => "Most likely a gradual rise in how much is eaten: the weight trend implies a higher intake than before the plateau.".to_string(),
-                        _ => "The records do not yet show clearly whether this is the expected slowdown at a lower weight or a gradual rise in how much is eaten.".to_string(),
-                    };
-                    PlateauView { period, verdict, evidence: plateau_evidence(t, r, units) }
-                })
-                .collect()
+/// The latest plateau that reaches into the last four weeks before the period, with its
+/// reading. Older ones are history (still shaded on the weight chart), not something to act
+/// on now; overlapping readings of one stall would say the same thing several times.
+fn latest_plateau(
+    energy: Option<&EnergyResults>,
+    period_from: NaiveDate,
+    units: UnitSystem,
+) -> Vec<PlateauView> {
+    let recent = period_from - chrono::Duration::days(28);
+    energy
+        .and_then(|e| e.plateau_assessment.iter().rfind(|r| r.end >= recent))
+        .map(|r| PlateauView {
+            period: format!("{} – {}", fmt::date(r.start), fmt::date(r.end)),
+            verdict: plateau_verdict(r.classification).to_string(),
+            evidence: plateau_evidence(r, units),
         })
-        .unwrap_or_default();
-    let guidance = guidance::build(plan, data, results);
-    // Plateau readings belong with advice to restart a loss; for anyone else (past the target,
-    // regaining, withdrawn, for a clinician first) they would invite the wrong action.
-    // Only the latest plateau: overlapping readings of one stall would say the same thing
-    // several times.
-    let plateaus = if guidance.show_plateaus {
-        plateaus.into_iter().last().into_iter().collect()
-    } else {
-        Vec::new()
-    };
+        .into_iter()
+        .collect()
+}
 
-    // Labs.
-    let labs = outcomes
-        .and_then(|o| o.table("labs"))
-        .filter(|t| !t.rows.is_empty())
-        .map(|t| TableView {
-            header: vec![
-                "Date".into(),
-                "Test".into(),
-                "Value".into(),
-                "Also".into(),
-                "Range".into(),
-            ],
-            rows: t
-                .rows
-                .iter()
-                .map(|r| {
-                    let v = format!("{} {}", cell_str(t, r, "value"), cell_str(t, r, "unit"));
-                    let alt = format!(
-                        "{} {}",
-                        cell_str(t, r, "value_alt"),
-                        cell_str(t, r, "unit_alt")
-                    );
-                    vec![
-                        cell_date(t, r, "date").map(fmt::date).unwrap_or_default(),
-                        lab_name(&cell_str(t, r, "test")),
-                        v.trim().to_string(),
-                        alt.trim().to_string(),
-                        cell_str(t, r, "category").replace('_', " "),
-                    ]
-                })
-                .collect(),
-        });
+fn plateau_verdict(c: PlateauCause) -> &'static str {
+    match c {
+        PlateauCause::ExpectedSlowdown => {
+            "The slowdown expected at your new, lower weight: your body now uses less energy than when you started."
+        }
+        PlateauCause::IntakeDrift => {
+            "Most likely a gradual rise in how much is eaten: the weight trend implies a higher intake than before the plateau."
+        }
+        PlateauCause::Undetermined => {
+            "The records do not yet show clearly whether this is the expected slowdown at a lower weight or a gradual rise in how much is eaten."
+        }
+    }
+}
 
-    // Flags: clinical first, then notices, then information.
+/// Lab values with their ranges, when there are any.
+fn labs(o: &OutcomesView) -> Option<TableView> {
+    (!o.labs.is_empty()).then(|| TableView {
+        header: vec![
+            "Date".into(),
+            "Test".into(),
+            "Value".into(),
+            "Also".into(),
+            "Range".into(),
+        ],
+        rows: o
+            .labs
+            .iter()
+            .map(|l| {
+                let value = format!("{} {}", num_text(Some(l.value)), l.unit);
+                let alt = format!(
+                    "{} {}",
+                    num_text(l.value_alt),
+                    l.unit_alt.as_deref().unwrap_or_default()
+                );
+                vec![
+                    fmt::date(l.date),
+                    l.test.label().to_string(),
+                    value.trim().to_string(),
+                    alt.trim().to_string(),
+                    l.category.as_str().replace('_', " "),
+                ]
+            })
+            .collect(),
+    })
+}
+
+/// Flags of every module: clinical first, then notices, then information.
+fn flags(results: &ModuleResults) -> Vec<FlagView> {
     let mut flags: Vec<FlagView> = results
         .outputs
         .iter()
@@ -369,8 +398,12 @@ pub fn build(
         "notice" => 1,
         _ => 2,
     });
+    flags
+}
 
-    let data_notes = diags
+/// Data problems found in this participant's files, in plain words.
+fn data_notes(diags: &[Diagnostic]) -> Vec<String> {
+    diags
         .iter()
         .map(|d| {
             let file = d.file.rsplit('/').next().unwrap_or(&d.file);
@@ -393,19 +426,16 @@ pub fn build(
                 format!("Note — {file}{line}: {}", d.message)
             }
         })
-        .collect();
+        .collect()
+}
 
-    let module_failures = results
-        .failures
-        .iter()
-        .map(|f| format!("{}: {}", f.module, f.message))
-        .collect();
-
-    let builtin = ["trend", "energy", "adherence", "outcomes"];
-    let extra = results
+/// The scalars and texts of modules other than the built-in ones (external modules), as
+/// their outputs label them.
+fn extra_modules(results: &ModuleResults) -> Vec<ExtraView> {
+    results
         .outputs
         .iter()
-        .filter(|(m, _)| !builtin.contains(&m.as_str()))
+        .filter(|(m, _)| !BUILTIN.contains(&m.as_str()))
         .map(|(m, o)| ExtraView {
             module: m.clone(),
             items: o
@@ -426,60 +456,18 @@ pub fn build(
                 )
                 .collect(),
         })
-        .collect();
-
-    let ctx = ParticipantReportContext {
-        program: super::ProgramView::new(plan),
-        participant: PersonView {
-            id: p.id.clone(),
-            display_name: p.name.clone().unwrap_or_else(|| p.id.clone()),
-            facts,
-        },
-        headline,
-        summary,
-        milestones,
-        weight_chart: weight_view,
-        energy: energy_view,
-        adherence: adherence_view,
-        plateaus,
-        guidance,
-        labs,
-        flags,
-        data_notes,
-        module_failures,
-        extra,
-        cautions: cautions::participant(&guidance::Thresholds::from_plan(plan)),
-    };
-    ParticipantReport {
-        ctx,
-        weight_chart,
-        energy_chart,
-        activity_chart,
-    }
-}
-
-fn lab_name(code: &str) -> String {
-    match code {
-        "fasting_glucose" => "Fasting glucose".into(),
-        "hba1c" => "HbA1c".into(),
-        "waist" => "Waist".into(),
-        "systolic_bp" => "Blood pressure (systolic)".into(),
-        "diastolic_bp" => "Blood pressure (diastolic)".into(),
-        other => other.replace('_', " "),
-    }
+        .collect()
 }
 
 fn headline(
-    trend: Option<&ModuleOutput>,
-    outcomes: Option<&ModuleOutput>,
+    trend: Option<&TrendView>,
+    outcomes: Option<&OutcomesView>,
     units: UnitSystem,
     left: Option<NaiveDate>,
 ) -> String {
-    let status = trend
-        .and_then(|t| t.text("status"))
-        .unwrap_or("insufficient_data");
-    let change = outcomes.and_then(|o| o.scalar("change_kg"));
-    let rate = trend.and_then(|t| t.scalar("slope_kg_per_week"));
+    let status = trend.map_or(Status::InsufficientData, |t| t.status);
+    let change = outcomes.and_then(|o| o.change_kg);
+    let rate = trend.and_then(|t| t.slope_kg_per_week.value);
     let since = change
         .map(|c| format!(" Since you started: {}.", fmt::weight_change(c, units)))
         .unwrap_or_default();
@@ -494,20 +482,20 @@ fn headline(
         );
     }
     match status {
-        "losing" => format!(
+        Status::Losing => format!(
             "Your weight trend is going down, by about {rate_s} over the last four weeks.{since}"
         ),
-        "plateau" => {
+        Status::Plateau => {
             format!("Your weight has held steady over the last four weeks (a plateau).{since}")
         }
-        "regaining" => {
+        Status::Regaining => {
             format!("Your weight trend has been rising over the last four weeks ({rate_s}).{since}")
         }
-        "stable" => format!("Your weight has been stable over the last four weeks.{since}"),
-        "unclear" => format!(
+        Status::Stable => format!("Your weight has been stable over the last four weeks.{since}"),
+        Status::Unclear => format!(
             "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off.{since}"
         ),
-        _ => format!(
+        Status::InsufficientData => format!(
             "There are too few recent weigh-ins to see how your weight moved over the last four weeks.{since}"
         ),
     }
@@ -515,11 +503,11 @@ fn headline(
 
 /// The numbers behind a plateau reading, in plain words and the program's display units (the
 /// module's own `evidence` text, in kg and model terms, stays in the tidy tables).
-fn plateau_evidence(t: &Table, r: &[Cell], units: UnitSystem) -> String {
+fn plateau_evidence(r: &PlateauRow, units: UnitSystem) -> String {
     let mut parts = Vec::new();
     if let (Some(before), Some(during)) = (
-        cell_num(t, r, "implied_intake_before_kcal_per_day"),
-        cell_num(t, r, "implied_intake_during_kcal_per_day"),
+        r.implied_intake_before_kcal_per_day,
+        r.implied_intake_during_kcal_per_day,
     ) {
         parts.push(format!(
             "Your weight trend implies about {} a day before the plateau and about {} a day during it.",
@@ -527,10 +515,9 @@ fn plateau_evidence(t: &Table, r: &[Cell], units: UnitSystem) -> String {
             fmt::kcal(during)
         ));
     }
-    if let (Some(expected), Some(observed)) = (
-        cell_num(t, r, "expected_slope_kg_per_week"),
-        cell_num(t, r, "observed_slope_kg_per_week"),
-    ) {
+    if let (Some(expected), Some(observed)) =
+        (r.expected_slope_kg_per_week, r.observed_slope_kg_per_week)
+    {
         parts.push(format!(
             "With the intake you logged, the model expects a change of {} at this weight; the trend shows {}.",
             fmt::rate_per_week(expected, units),
@@ -542,23 +529,22 @@ fn plateau_evidence(t: &Table, r: &[Cell], units: UnitSystem) -> String {
 
 /// Person-first words for a WHO BMI range (the standard labels stay in the tidy metrics and
 /// group tables): ` — your BMI is in the range the WHO calls …`.
-fn bmi_range_words(code: &str) -> String {
+fn bmi_range_words(category: Option<BmiCategory>) -> String {
     // WHO 2000, Technical Report Series 894: cut-offs 18.5, 25, 30, 35, 40.
-    let (name, range) = match code {
-        "underweight" => ("underweight", "below 18.5"),
-        "normal" => ("normal weight", "18.5 to 24.9"),
-        "overweight" => ("pre-obese (overweight)", "25 to 29.9"),
-        "obesity_class_1" => ("obesity class I", "30 to 34.9"),
-        "obesity_class_2" => ("obesity class II", "35 to 39.9"),
-        "obesity_class_3" => ("obesity class III", "40 or more"),
-        _ => return String::new(),
+    let (name, range) = match category {
+        Some(BmiCategory::Underweight) => ("underweight", "below 18.5"),
+        Some(BmiCategory::Normal) => ("normal weight", "18.5 to 24.9"),
+        Some(BmiCategory::Overweight) => ("pre-obese (overweight)", "25 to 29.9"),
+        Some(BmiCategory::ObesityClass1) => ("obesity class I", "30 to 34.9"),
+        Some(BmiCategory::ObesityClass2) => ("obesity class II", "35 to 39.9"),
+        Some(BmiCategory::ObesityClass3) => ("obesity class III", "40 or more"),
+        None => return String::new(),
     };
     format!("; your BMI is in the range {range}, which the WHO calls “{name}”")
 }
 
 fn weight_chart(
-    trend: Option<&ModuleOutput>,
-    energy: Option<&ModuleOutput>,
+    v: &BuiltinViews,
     target_kg: Option<f64>,
     units: UnitSystem,
     plan: &RunPlan,
@@ -576,71 +562,65 @@ fn weight_chart(
         ],
         rows: Vec::new(),
     };
-    if let Some(t) = trend {
-        if let Some(s) = t.series("weigh_ins") {
-            lines.push(LineSeries {
-                label: "Weigh-ins".into(),
-                points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
-                style: LineStyle::Dots,
-            });
-        }
-        if let Some(s) = t.series("weight_trend") {
-            bands.push(BandSeries {
-                label: "Trend 95 % band".into(),
-                points: s
-                    .points
-                    .iter()
-                    .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
-                    .collect(),
-            });
-            lines.push(LineSeries {
-                label: "Trend".into(),
-                points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
-                style: LineStyle::Solid,
-            });
-            let n = s.points.len();
-            for (i, p) in s.points.iter().enumerate() {
-                if (n - 1 - i) % 7 == 0 {
-                    table.rows.push(vec![
-                        fmt::date(p.date),
-                        fmt::fixed(conv(p.value), 1),
-                        match (p.lower, p.upper) {
-                            (Some(l), Some(u)) => {
-                                format!("{}–{}", fmt::fixed(conv(l), 1), fmt::fixed(conv(u), 1))
-                            }
-                            _ => String::new(),
-                        },
-                    ]);
-                }
+    if let Some(t) = &v.trend {
+        lines.push(LineSeries {
+            label: "Weigh-ins".into(),
+            points: t
+                .weigh_ins
+                .points
+                .iter()
+                .map(|p| (p.date, conv(p.value)))
+                .collect(),
+            style: LineStyle::Dots,
+        });
+        let s = &t.weight_trend;
+        bands.push(BandSeries {
+            label: "Trend 95 % band".into(),
+            points: s
+                .points
+                .iter()
+                .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
+                .collect(),
+        });
+        lines.push(LineSeries {
+            label: "Trend".into(),
+            points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
+            style: LineStyle::Solid,
+        });
+        let n = s.points.len();
+        for (i, p) in s.points.iter().enumerate() {
+            if (n - 1 - i) % 7 == 0 {
+                table.rows.push(vec![
+                    fmt::date(p.date),
+                    fmt::fixed(conv(p.value), 1),
+                    match (p.lower, p.upper) {
+                        (Some(l), Some(u)) => {
+                            format!("{}–{}", fmt::fixed(conv(l), 1), fmt::fixed(conv(u), 1))
+                        }
+                        _ => String::new(),
+                    },
+                ]);
             }
         }
-        if let Some(pt) = t.table("periods") {
-            for r in &pt.rows {
-                let kind = match cell_str(pt, r, "kind").as_str() {
-                    "plateau" => SpanKind::Plateau,
-                    "regain" => SpanKind::Regain,
-                    _ => continue,
-                };
-                if let (Some(from), Some(to)) = (cell_date(pt, r, "start"), cell_date(pt, r, "end"))
-                {
-                    let label = if kind == SpanKind::Plateau {
-                        "Plateau"
-                    } else {
-                        "Regain"
-                    };
-                    spans.push(Span {
-                        label: label.into(),
-                        from,
-                        to,
-                        kind,
-                    });
-                }
-            }
+        for r in &t.periods {
+            let (kind, label) = match r.kind {
+                PeriodKind::Plateau => (SpanKind::Plateau, "Plateau"),
+                PeriodKind::Regain => (SpanKind::Regain, "Regain"),
+                PeriodKind::Loss | PeriodKind::InsufficientData => continue,
+            };
+            spans.push(Span {
+                label: label.into(),
+                from: r.start,
+                to: r.end,
+                kind,
+            });
         }
     }
     // No forecast (e.g. after leaving the program): no empty "Forecast" entry in the legend.
-    if let Some(s) = energy
-        .and_then(|e| e.series("forecast_weight"))
+    if let Some(s) = v
+        .energy
+        .as_ref()
+        .map(|e| &e.forecast_weight)
         .filter(|s| !s.points.is_empty())
     {
         bands.push(BandSeries {
@@ -698,12 +678,10 @@ fn weight_chart(
     )
 }
 
-fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
+fn energy_section(e: &EnergyResults) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
-    let push = |items: &mut Vec<Kv>, label: &str, name: &str| {
-        if let Some(s) = e.scalar_full(name)
-            && let Some(v) = s.value
-        {
+    let push = |items: &mut Vec<Kv>, label: &str, s: Interval| {
+        if let Some(v) = s.value {
             let mut text = fmt::kcal_per_day(v);
             if let (Some(l), Some(u)) = (s.lower, s.upper) {
                 text = format!("{text} (95 % interval {}–{})", fmt::int(l), fmt::int(u));
@@ -711,32 +689,30 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
             items.push(Kv::new(label, &text));
         }
     };
-    push(&mut items, "Resting energy (estimated)", "rmr_kcal_per_day");
+    push(&mut items, "Resting energy (estimated)", e.rmr_kcal_per_day);
     push(
         &mut items,
         "Activity, beyond resting",
-        "activity_net_kcal_per_day",
+        e.activity_net_kcal_per_day,
     );
-    push(&mut items, "Total energy use per day", "tdee_kcal_per_day");
+    push(&mut items, "Total energy use per day", e.tdee_kcal_per_day);
     push(
         &mut items,
         "Intake you logged (average)",
-        "logged_intake_kcal_per_day",
+        e.logged_intake_kcal_per_day,
     );
     push(
         &mut items,
         "Intake implied by your weight trend",
-        "implied_intake_kcal_per_day",
+        e.implied_intake_kcal_per_day,
     );
-    if let Some(g) = e.scalar("intake_gap_kcal_per_day") {
+    if let Some(g) = e.intake_gap_kcal_per_day.value {
         items.push(Kv::new("Implied minus logged", &fmt::kcal_change(g)));
     }
-    if let Some(b) = e.scalar("energy_balance_kcal_per_day") {
+    if let Some(b) = e.energy_balance_kcal_per_day.value {
         items.push(Kv::new("Energy balance (implied)", &fmt::kcal_change(b)));
     }
-    if let Some(eq) = e.texts.iter().find(|t| t.name == "rmr_equation") {
-        items.push(Kv::new("Resting-energy equation", &eq.label));
-    }
+    items.push(Kv::new("Resting-energy equation", e.rmr_equation.label()));
     let explanation = "Energy use is estimated from a published equation and your logged activity (net of what you would burn resting). The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard. Ranges are 95 % intervals.".to_string();
     let mut table = TableView {
         header: vec![
@@ -747,58 +723,53 @@ fn energy_section(e: &ModuleOutput) -> (EnergyView, Option<Chart>) {
         ],
         rows: Vec::new(),
     };
-    let mut chart = None;
-    if let Some(t) = e.table("weekly_energy") {
-        let mut series: [Vec<(NaiveDate, f64)>; 3] = Default::default();
-        for r in &t.rows {
-            let Some(d) = cell_date(t, r, "week_start") else {
-                continue;
-            };
-            let vals = [
-                cell_num(t, r, "expenditure_kcal_per_day"),
-                cell_num(t, r, "logged_intake_kcal_per_day"),
-                cell_num(t, r, "implied_intake_kcal_per_day"),
-            ];
-            for (i, v) in vals.iter().enumerate() {
-                if let Some(v) = v {
-                    series[i].push((d, *v));
-                }
+    let mut series: [Vec<(NaiveDate, f64)>; 3] = Default::default();
+    for r in &e.weekly_energy {
+        let d = r.week_start;
+        let vals = [
+            r.expenditure_kcal_per_day,
+            r.logged_intake_kcal_per_day,
+            r.implied_intake_kcal_per_day,
+        ];
+        for (i, v) in vals.iter().enumerate() {
+            if let Some(v) = v {
+                series[i].push((d, *v));
             }
-            let mut row = vec![fmt::date(d)];
-            row.extend(
-                vals.iter()
-                    .map(|v| v.map(fmt::int).unwrap_or_else(|| "–".into())),
-            );
-            table.rows.push(row);
         }
-        let [exp, logged, implied] = series;
-        let alt = "Weekly energy: estimated energy use, logged intake and the intake implied by the weight trend, in kcal per day.".to_string();
-        chart = Some(Chart::Line(LineChart {
-            title: "Energy per day, by week".into(),
-            y_label: "kcal/day".into(),
-            lines: vec![
-                LineSeries {
-                    label: "Energy use".into(),
-                    points: exp,
-                    style: LineStyle::Solid,
-                },
-                LineSeries {
-                    label: "Logged intake".into(),
-                    points: logged,
-                    style: LineStyle::Dots,
-                },
-                LineSeries {
-                    label: "Implied intake".into(),
-                    points: implied,
-                    style: LineStyle::Dashed,
-                },
-            ],
-            bands: vec![],
-            spans: vec![],
-            hlines: vec![],
-            alt_text: alt,
-        }));
+        let mut row = vec![fmt::date(d)];
+        row.extend(
+            vals.iter()
+                .map(|v| v.map(fmt::int).unwrap_or_else(|| "–".into())),
+        );
+        table.rows.push(row);
     }
+    let [exp, logged, implied] = series;
+    let alt = "Weekly energy: estimated energy use, logged intake and the intake implied by the weight trend, in kcal per day.".to_string();
+    let chart = Some(Chart::Line(LineChart {
+        title: "Energy per day, by week".into(),
+        y_label: "kcal/day".into(),
+        lines: vec![
+            LineSeries {
+                label: "Energy use".into(),
+                points: exp,
+                style: LineStyle::Solid,
+            },
+            LineSeries {
+                label: "Logged intake".into(),
+                points: logged,
+                style: LineStyle::Dots,
+            },
+            LineSeries {
+                label: "Implied intake".into(),
+                points: implied,
+                style: LineStyle::Dashed,
+            },
+        ],
+        bands: vec![],
+        spans: vec![],
+        hlines: vec![],
+        alt_text: alt,
+    }));
     let view = EnergyView {
         items,
         explanation,
@@ -846,19 +817,19 @@ fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
 }
 
 fn adherence_section(
-    a: &ModuleOutput,
+    a: &AdherenceResults,
     target: f64,
     unread: &ActivityUnread,
 ) -> (AdherenceView, Chart) {
     let mut items = Vec::new();
-    let f1 = |n: &str| a.scalar(n).map(|v| fmt::fixed(v, 1));
-    if let Some(v) = f1("weigh_ins_per_week") {
+    let f1 = |v: Option<f64>| v.map(|v| fmt::fixed(v, 1));
+    if let Some(v) = f1(a.weigh_ins_per_week) {
         items.push(Kv::new("Weigh-ins per week", &v));
     }
-    if let Some(v) = f1("food_log_days_per_week") {
+    if let Some(v) = f1(a.food_log_days_per_week) {
         items.push(Kv::new("Days with a food log per week", &v));
     }
-    if let Some(v) = a.scalar("activity_minutes_per_week") {
+    if let Some(v) = a.activity_minutes_per_week {
         // Never "0 minutes" when the log could not be read: say so instead.
         let text = match unread {
             ActivityUnread::File => {
@@ -885,17 +856,15 @@ fn adherence_section(
             &text,
         ));
     }
-    if let (Some(att), Some(off)) = (
-        a.scalar("sessions_attended_to_date"),
-        a.scalar("sessions_offered_to_date"),
-    ) && off > 0.0
+    if let (Some(att), Some(off)) = (a.sessions_attended_to_date, a.sessions_offered_to_date)
+        && off > 0.0
     {
         items.push(Kv::new(
             "Group sessions attended since you joined",
             &format!("{att} of {off}"),
         ));
     }
-    if let Some(v) = a.scalar("longest_weigh_in_streak_days") {
+    if let Some(v) = a.longest_weigh_in_streak_days {
         items.push(Kv::new(
             "Longest run of daily weigh-ins",
             &format!("{} days", fmt::fixed(v, 0)),
@@ -912,30 +881,26 @@ fn adherence_section(
         rows: Vec::new(),
     };
     let mut bars = Vec::new();
-    if let Some(t) = a.table("weekly") {
-        for r in &t.rows {
-            let d = cell_date(t, r, "week_start");
-            let mins = cell_num(t, r, "activity_minutes").unwrap_or(0.0);
-            bars.push(Bar {
-                label: d
-                    .map(|d| d.format("%-d %b").to_string())
-                    .unwrap_or_default(),
-                value: mins,
-                suppressed: false,
-            });
-            let offered = cell_str(t, r, "sessions_offered");
-            table.rows.push(vec![
-                d.map(fmt::date).unwrap_or_default(),
-                cell_str(t, r, "weigh_ins"),
-                cell_str(t, r, "food_log_days"),
-                fmt::fixed(mins, 0),
-                if offered.is_empty() || offered == "0" {
-                    "–".into()
-                } else {
-                    format!("{} of {offered}", cell_str(t, r, "sessions_attended"))
-                },
-            ]);
-        }
+    for w in &a.weekly {
+        let d = w.week_start;
+        let mins = w.activity_minutes.unwrap_or(0.0);
+        bars.push(Bar {
+            label: d.format("%-d %b").to_string(),
+            value: mins,
+            suppressed: false,
+        });
+        let offered = num_text(w.sessions_offered);
+        table.rows.push(vec![
+            fmt::date(d),
+            num_text(w.weigh_ins),
+            num_text(w.food_log_days),
+            fmt::fixed(mins, 0),
+            if offered.is_empty() || offered == "0" {
+                "–".into()
+            } else {
+                format!("{} of {offered}", num_text(w.sessions_attended))
+            },
+        ]);
     }
     let alt = format!(
         "Moderate-equivalent activity minutes by week, against the target of {} minutes.",
@@ -964,24 +929,13 @@ fn adherence_section(
 #[cfg(test)]
 mod activity_unread_tests {
     use super::*;
-    use cohortpress_metric_api::Scalar;
-
-    fn adherence(minutes: f64) -> ModuleOutput {
-        ModuleOutput {
-            scalars: vec![Scalar {
-                name: "activity_minutes_per_week".into(),
-                value: Some(minutes),
-                unit: "min".into(),
-                lower: None,
-                upper: None,
-                label: "Activity minutes per week".into(),
-            }],
-            ..Default::default()
-        }
-    }
 
     fn shown(minutes: f64, diags: &[Diagnostic]) -> String {
-        let (view, _) = adherence_section(&adherence(minutes), 150.0, &activity_unread(diags));
+        let adherence = AdherenceResults {
+            activity_minutes_per_week: Some(minutes),
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(&adherence, 150.0, &activity_unread(diags));
         view.items
             .iter()
             .find(|k| k.label.starts_with("Activity minutes"))

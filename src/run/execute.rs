@@ -28,6 +28,7 @@ use crate::run::shard::{self, ShardFile, ShardSpec};
 use crate::tidy;
 use chrono::{Datelike, NaiveDate};
 use cohortpress_metric_api::{ParticipantData, Period};
+use cohortpress_metric_trend::view::Status;
 use rayon::prelude::*;
 use std::path::{Path, PathBuf};
 use std::sync::Mutex;
@@ -976,16 +977,15 @@ pub fn summary_row(
     data: &ParticipantData,
     results: &ModuleResults,
 ) -> ParticipantSummary {
-    let get = |m: &str| results.output(m);
-    let trend = get("trend");
-    let adherence = get("adherence");
-    let outcomes = get("outcomes");
+    let v = results.views();
+    let (trend, adherence, outcomes) =
+        (v.trend.as_ref(), v.adherence.as_ref(), v.outcomes.as_ref());
     let period = plan.period;
     let withdrawn = data.profile.withdrew.is_some_and(|w| w <= period.to);
     let baseline_kg = outcomes
-        .and_then(|o| o.scalar("baseline_weight_kg"))
+        .and_then(|o| o.baseline_weight_kg)
         .or_else(|| data.baseline_weight().map(|w| w.weight.kg()));
-    let trend_series = trend.and_then(|t| t.series("weight_trend"));
+    let trend_series = trend.map(|t| &t.weight_trend);
     // Outcome weight: the current trend weight (the smoothed level on the last weigh-in day
     // of the period), if that weigh-in lies in the last 28 days of the period; otherwise the
     // outcome is missing (rule documented in the README).
@@ -995,7 +995,7 @@ pub fn summary_row(
         .rev()
         .find(|w| w.date <= period.to)
         .map(|w| w.date);
-    let current = trend.and_then(|t| t.scalar("current_weight_kg"));
+    let current = trend.and_then(|t| t.current_weight_kg.value);
     let recent = last_weigh_in.is_some_and(|d| (period.to - d).num_days() < 28);
     let outcome_kg = if recent { current } else { None };
     let last_observed_kg = current.or_else(|| {
@@ -1017,10 +1017,10 @@ pub fn summary_row(
             .collect(),
         _ => Vec::new(),
     };
-    let in_plateau = trend.and_then(|t| t.text("status")).and_then(|s| match s {
-        "plateau" => Some(true),
-        "insufficient_data" | "unclear" => None,
-        _ => Some(false),
+    let in_plateau = trend.and_then(|t| match t.status {
+        Status::Plateau => Some(true),
+        Status::InsufficientData | Status::Unclear => None,
+        Status::Losing | Status::Regaining | Status::Stable => Some(false),
     });
     let clinical_flags = results
         .outputs
@@ -1037,10 +1037,10 @@ pub fn summary_row(
         outcome_kg,
         last_observed_kg,
         weekly_change_percent,
-        activity_minutes_per_week: adherence.and_then(|a| a.scalar("activity_minutes_per_week")),
-        weigh_ins_per_week: adherence.and_then(|a| a.scalar("weigh_ins_per_week")),
-        food_log_days_per_week: adherence.and_then(|a| a.scalar("food_log_days_per_week")),
-        attendance_percent: adherence.and_then(|a| a.scalar("attendance_to_date_percent")),
+        activity_minutes_per_week: adherence.and_then(|a| a.activity_minutes_per_week),
+        weigh_ins_per_week: adherence.and_then(|a| a.weigh_ins_per_week),
+        food_log_days_per_week: adherence.and_then(|a| a.food_log_days_per_week),
+        attendance_percent: adherence.and_then(|a| a.attendance_to_date_percent),
         in_plateau,
         clinical_flags,
         pseudonym: None,

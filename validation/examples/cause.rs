@@ -1,5 +1,7 @@
 //! Plateau-cause diagnostics (development aid).
-use cohortpress_metric_api::{Cell, Targets};
+use cohortpress_metric_api::Targets;
+use cohortpress_metric_api::view::ModuleView;
+use cohortpress_metric_energy::view::EnergyView;
 use cohortpress_validation::{participant_data, run_modules, true_plateau_onset, truth};
 
 fn main() {
@@ -11,28 +13,24 @@ fn main() {
         };
         let d = participant_data(&p, &Targets::default());
         let (_, en) = run_modules(&d, days, days - 1);
-        let t = en.table("plateau_assessment").unwrap();
+        let en = EnergyView::from_output(&en).unwrap();
         let early: f64 = p.intake[7..35].iter().sum::<f64>() / 28.0;
         let during: f64 = p.intake[on..(on + 28).min(days)].iter().sum::<f64>() / 28.0;
-        for r in &t.rows {
-            let f = |c: &Cell| match c {
-                Cell::Text(s) => s.clone(),
-                Cell::Number(x) => format!("{x:.0}"),
-                Cell::Empty => "-".into(),
-            };
+        for r in &en.plateau_assessment {
+            let f = |x: Option<f64>| x.map_or("-".into(), |x| format!("{x:.0}"));
             println!(
                 "{i:3} {:18} {:10} on {on} rise {:.0} | {} {} early {} during {} chg {} [{}, {}] {}",
                 p.archetype.name(),
                 p.weighing.name(),
                 during - early,
-                f(&r[0]),
-                f(&r[6]),
-                f(&r[4]),
-                f(&r[5]),
-                f(&r[8]),
-                f(&r[9]),
-                f(&r[10]),
-                f(&r[3])
+                r.start,
+                r.classification,
+                f(r.implied_intake_before_kcal_per_day),
+                f(r.implied_intake_during_kcal_per_day),
+                f(r.intake_change_kcal_per_day),
+                f(r.intake_change_lower_kcal_per_day),
+                f(r.intake_change_upper_kcal_per_day),
+                f(r.expected_slope_kg_per_week)
             );
         }
     }

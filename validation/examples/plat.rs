@@ -1,5 +1,7 @@
 //! Plateau diagnostics (development aid).
-use cohortpress_metric_api::{Cell, Targets};
+use cohortpress_metric_api::Targets;
+use cohortpress_metric_api::view::ModuleView;
+use cohortpress_metric_trend::view::TrendView;
 use cohortpress_validation::{participant_data, run_modules, true_plateau_onset, truth};
 
 fn main() {
@@ -9,29 +11,14 @@ fn main() {
         let on = true_plateau_onset(&p.tissue, &p.bw);
         let d = participant_data(&p, &Targets::default());
         let (tr, _en) = run_modules(&d, days, days - 1);
-        let t = tr.table("periods").unwrap();
-        let per: Vec<String> = t
-            .rows
+        let day = |d: chrono::NaiveDate| (d - cohortpress_validation::day0()).num_days();
+        let per: Vec<String> = TrendView::from_output(&tr)
+            .unwrap()
+            .periods
             .iter()
             .map(|r| {
-                let f = |c: &Cell| match c {
-                    Cell::Text(s) => s.clone(),
-                    Cell::Number(x) => format!("{x:.2}"),
-                    Cell::Empty => "-".into(),
-                };
-                let start = match &r[1] {
-                    Cell::Text(s) => (chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
-                        - cohortpress_validation::day0())
-                    .num_days(),
-                    _ => -1,
-                };
-                let end = match &r[2] {
-                    Cell::Text(s) => (chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
-                        - cohortpress_validation::day0())
-                    .num_days(),
-                    _ => -1,
-                };
-                format!("{}:{}-{} c{}", f(&r[0]), start, end, f(&r[9]))
+                let c = r.confidence.map_or("-".into(), |x| format!("{x:.2}"));
+                format!("{}:{}-{} c{c}", r.kind, day(r.start), day(r.end))
             })
             .collect();
         if on.is_some() || per.iter().any(|x| x.starts_with("plateau")) {

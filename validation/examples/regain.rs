@@ -1,5 +1,7 @@
 //! Regain diagnostics (development aid).
 use cohortpress_metric_api::Targets;
+use cohortpress_metric_api::view::ModuleView;
+use cohortpress_metric_trend::view::TrendView;
 use cohortpress_validation::{participant_data, run_modules, truth};
 
 fn main() {
@@ -14,7 +16,8 @@ fn main() {
         }
         let d = participant_data(&p, &Targets::default());
         let (tr, _) = run_modules(&d, days, days - 1);
-        let r = tr.scalar_full("regain_kg").unwrap();
+        let tr = TrendView::from_output(&tr).unwrap();
+        let r = tr.regain_kg;
         println!(
             "{i:3} {:18} {:10} true rise {:.1} ({:.1}%) lost {:.1}% | est {:.1} [{:.1},{:.1}] conf {:.2} {:?} status {:?}",
             p.archetype.name(),
@@ -25,9 +28,9 @@ fn main() {
             r.value.unwrap_or(f64::NAN),
             r.lower.unwrap_or(f64::NAN),
             r.upper.unwrap_or(f64::NAN),
-            tr.scalar("regain_confidence").unwrap_or(f64::NAN),
-            tr.text("regain_verdict"),
-            tr.text("status"),
+            tr.regain_confidence.unwrap_or(f64::NAN),
+            tr.regain_verdict,
+            tr.status,
         );
     }
 }

@@ -13,12 +13,15 @@ pub mod truth;
 
 use chrono::{Days, NaiveDate};
 use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_api::{
-    ActivityEntry, Cell, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData,
-    Period, Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
+    ActivityEntry, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData, Period,
+    Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
 };
 use cohortpress_metric_energy::EnergyModule;
+use cohortpress_metric_energy::view::EnergyView;
 use cohortpress_metric_trend::TrendModule;
+use cohortpress_metric_trend::view::{PeriodKind, RegainVerdict, Status, TrendView};
 use std::collections::BTreeMap;
 use truth::{Archetype, Person, Weighing};
 
@@ -168,7 +171,7 @@ pub fn run_modules_with(
         .spec()
         .resolve_settings(energy_settings)
         .expect("settings resolve");
-    ctx.earlier.insert("trend".into(), trend.clone());
+    ctx.earlier.insert(TrendView::MODULE.into(), trend.clone());
     let energy = EnergyModule.compute(&ctx, data).expect("energy computes");
     (trend, energy)
 }
@@ -254,41 +257,6 @@ pub struct Outcome {
     pub forecast: Option<(f64, f64, f64)>,
 }
 
-fn scalar_full(o: &ModuleOutput, name: &str) -> Option<(f64, Option<f64>, Option<f64>)> {
-    let s = o.scalar_full(name)?;
-    Some((s.value?, s.lower, s.upper))
-}
-
-fn table_rows(o: &ModuleOutput, table: &str) -> Vec<BTreeMap<String, Cell>> {
-    o.table(table)
-        .map(|t| {
-            t.rows
-                .iter()
-                .map(|r| {
-                    t.columns
-                        .iter()
-                        .zip(r)
-                        .map(|(c, v)| (c.name.clone(), v.clone()))
-                        .collect()
-                })
-                .collect()
-        })
-        .unwrap_or_default()
-}
-
-fn cell_text(r: &BTreeMap<String, Cell>, k: &str) -> Option<String> {
-    match r.get(k) {
-        Some(Cell::Text(s)) => Some(s.clone()),
-        _ => None,
-    }
-}
-
-fn cell_date(r: &BTreeMap<String, Cell>, k: &str) -> Option<i64> {
-    cell_text(r, k)
-        .and_then(|s| NaiveDate::parse_from_str(&s, "%Y-%m-%d").ok())
-        .map(day_of)
-}
-
 /// Simulates and scores person `index` of the cohort with seed `seed` over `days` days.
 pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
     run_person_with(seed, index, days, Oracle::None)
@@ -301,15 +269,20 @@ pub fn run_person_with(seed: u64, index: usize, days: usize, oracle: Oracle) -> 
     let end = days - 1;
     let settings = oracle.energy_settings(&p);
     let (trend, energy) = run_modules_with(&data, days, end, &settings);
+    let trend = TrendView::from_output(&trend).expect("the trend output reads as its view");
+    let energy = EnergyView::from_output(&energy).expect("the energy output reads as its view");
     let last_obs = p.obs.iter().map(|o| o.day).max();
     let observed_to_end = last_obs.is_some_and(|d| d + 28 > end);
 
     let intake_truth = mean(&p.intake[end - 27..=end]);
-    let intake = scalar_full(&energy, "implied_intake_kcal_per_day")
-        .and_then(|(v, l, u)| Some((intake_truth, v, l?, u?)));
-    let logged = energy.scalar("logged_intake_kcal_per_day");
+    let i = energy.implied_intake_kcal_per_day;
+    let intake = i
+        .value
+        .and_then(|v| Some((intake_truth, v, i.lower?, i.upper?)));
+    let logged = energy.logged_intake_kcal_per_day.value;
     let underreport = energy
-        .scalar("underreporting_percent")
+        .underreporting_percent
+        .value
         .or_else(|| {
             let (i, l) = (intake?.1, logged?);
             Some(100.0 * (1.0 - l / i))
@@ -317,21 +290,22 @@ pub fn run_person_with(seed: u64, index: usize, days: usize, oracle: Oracle) -> 
         .filter(|_| logged.is_some() && intake.is_some())
         .map(|e| (100.0 * p.underreport, e));
     let tdee = energy
-        .scalar("tdee_kcal_per_day")
+        .tdee_kcal_per_day
+        .value
         .filter(|_| observed_to_end)
         .map(|e| (mean(&p.tee[end - 27..=end]), e));
-    let trend_weight = match (trend.scalar("current_weight_kg"), last_obs) {
+    let trend_weight = match (trend.current_weight_kg.value, last_obs) {
         (Some(e), Some(d)) => Some((p.bw[d], e)),
         _ => None,
     };
 
     // Plateaus.
     let onset = true_plateau_onset(&p.tissue, &p.bw);
-    let periods = table_rows(&trend, "periods");
-    let est_plateau = periods
+    let est_onset = trend
+        .periods
         .iter()
-        .find(|r| cell_text(r, "kind").as_deref() == Some("plateau"));
-    let est_onset = est_plateau.and_then(|r| cell_date(r, "start"));
+        .find(|r| r.kind == PeriodKind::Plateau)
+        .map(|r| day_of(r.start));
     let observable = |t: usize| p.withdrew.is_none_or(|w| w >= t + 28);
     let plateau = onset.filter(|t| observable(*t)).map(|t| (t, est_onset));
     let plateau_ill_conditioned = plateau.map(|(t, _)| onset_ill_conditioned(&p.tissue, &p.bw, t));
@@ -351,11 +325,11 @@ pub fn run_person_with(seed: u64, index: usize, days: usize, oracle: Oracle) -> 
             } else {
                 None
             };
-            let est = table_rows(&energy, "plateau_assessment")
-                .into_iter()
-                .find(|r| cell_date(r, "start") == Some(e))
-                .and_then(|r| cell_text(&r, "classification"))
-                .unwrap_or_else(|| "none".into());
+            let est = energy
+                .plateau_assessment
+                .iter()
+                .find(|r| day_of(r.start) == e)
+                .map_or_else(|| "none".into(), |r| r.classification.as_str().to_string());
             truth.map(|t| (t, est))
         }
         _ => None,
@@ -376,11 +350,11 @@ pub fn run_person_with(seed: u64, index: usize, days: usize, oracle: Oracle) -> 
             } else {
                 None
             };
-            let said = energy
-                .text("regain_verdict")
-                .or_else(|| trend.text("regain_verdict"))
-                .map(|v| v == "regaining")
-                .unwrap_or_else(|| trend.text("status") == Some("regaining"));
+            let said = trend
+                .regain_verdict
+                .map_or(trend.status == Status::Regaining, |v| {
+                    v == RegainVerdict::Regaining
+                });
             truth.map(|t| (t, said))
         })
         .flatten();
@@ -388,7 +362,9 @@ pub fn run_person_with(seed: u64, index: usize, days: usize, oracle: Oracle) -> 
     // Forecast from mid-program.
     let mid = days / 2 - 1;
     let (_, energy_mid) = run_modules_with(&data, days, mid, &settings);
-    let forecast = energy_mid.series("forecast_weight").and_then(|s| {
+    let energy_mid =
+        EnergyView::from_output(&energy_mid).expect("the energy output reads as its view");
+    let forecast = Some(&energy_mid.forecast_weight).and_then(|s| {
         let pt = s.points.iter().find(|pt| pt.date == date(end))?;
         Some((p.bw[end], pt.lower?, pt.upper?))
     });

@@ -36,14 +36,18 @@
 
 use chrono::{Datelike, Duration, NaiveDate};
 use cohortpress_metric_api::{
-    ActivityEntry, Cell, Column, FlagSeverity, Intensity, MetricModule, ModuleContext, ModuleError,
-    ModuleOutput, ModuleSpec, OutputSpec, ParticipantData, Point, Series, SettingKind, SettingSpec,
-    Table,
+    ActivityEntry, FlagSeverity, Intensity, MetricModule, ModuleContext, ModuleError, ModuleOutput,
+    ModuleSpec, OutputSpec, ParticipantData, Point, Series, SettingKind, SettingSpec, Table,
 };
 use std::collections::{BTreeMap, BTreeSet};
 
 /// Id of this module in `program.yaml`.
 pub const MODULE_ID: &str = "adherence";
+
+pub mod view;
+
+use cohortpress_metric_api::view::TableRow;
+use view::{AdherenceFlag, WEEKLY_LABEL, WeekRow, names};
 
 /// Default length of a run of days with no record that raises the `gap` flag.
 ///
@@ -181,10 +185,6 @@ fn meets(value: f64, target_per_week: f64, covered: i64) -> bool {
     value + 1e-9 >= target_per_week * covered as f64 / 7.0
 }
 
-fn yes_no(b: bool) -> Cell {
-    Cell::Text(if b { "yes" } else { "no" }.into())
-}
-
 /// Longest run of consecutive days in `days`.
 fn longest_streak(days: &BTreeSet<NaiveDate>) -> i64 {
     let mut best = 0;
@@ -247,109 +247,109 @@ impl MetricModule for AdherenceModule {
             }],
             outputs: vec![
                 OutputSpec::new(
-                    "weekly",
+                    names::WEEKLY,
                     "table",
                     "",
                     "one row per ISO week with counts and targets met",
                 ),
                 OutputSpec::new(
-                    "weekly_activity_minutes",
+                    names::WEEKLY_ACTIVITY_MINUTES,
                     "series",
                     "min",
                     "moderate-equivalent minutes per week",
                 ),
                 OutputSpec::new(
-                    "weekly_weigh_ins",
+                    names::WEEKLY_WEIGH_INS,
                     "series",
                     "d",
                     "days with a weigh-in per week",
                 ),
                 OutputSpec::new(
-                    "weekly_food_log_days",
+                    names::WEEKLY_FOOD_LOG_DAYS,
                     "series",
                     "d",
                     "days with a food log per week",
                 ),
                 OutputSpec::new(
-                    "weigh_ins_per_week",
+                    names::WEIGH_INS_PER_WEEK,
                     "scalar",
                     "d/wk",
                     "days with a weigh-in per week, period",
                 ),
                 OutputSpec::new(
-                    "food_log_days_per_week",
+                    names::FOOD_LOG_DAYS_PER_WEEK,
                     "scalar",
                     "d/wk",
                     "food-log days per week, period",
                 ),
                 OutputSpec::new(
-                    "activity_minutes_per_week",
+                    names::ACTIVITY_MINUTES_PER_WEEK,
                     "scalar",
                     "min/wk",
                     "moderate-equivalent minutes per week, period",
                 ),
                 OutputSpec::new(
-                    "sessions_offered",
+                    names::SESSIONS_OFFERED,
                     "scalar",
                     "",
                     "sessions offered in the period",
                 ),
                 OutputSpec::new(
-                    "sessions_attended",
+                    names::SESSIONS_ATTENDED,
                     "scalar",
                     "",
                     "sessions attended in the period",
                 ),
                 OutputSpec::new(
-                    "attendance_percent",
+                    names::ATTENDANCE_PERCENT,
                     "scalar",
                     "%",
                     "sessions attended / offered in the period",
                 ),
                 OutputSpec::new(
-                    "sessions_offered_to_date",
+                    names::SESSIONS_OFFERED_TO_DATE,
                     "scalar",
                     "",
                     "sessions offered from enrolment to the end of observation",
                 ),
                 OutputSpec::new(
-                    "sessions_attended_to_date",
+                    names::SESSIONS_ATTENDED_TO_DATE,
                     "scalar",
                     "",
                     "sessions attended from enrolment to the end of observation",
                 ),
                 OutputSpec::new(
-                    "attendance_to_date_percent",
+                    names::ATTENDANCE_TO_DATE_PERCENT,
                     "scalar",
                     "%",
                     "sessions attended / offered since enrolment",
                 ),
                 OutputSpec::new(
-                    "weeks_meeting_activity_target_percent",
+                    names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,
                     "scalar",
                     "%",
                     "weeks of the period meeting the activity target",
                 ),
                 OutputSpec::new(
-                    "longest_weigh_in_streak_days",
+                    names::LONGEST_WEIGH_IN_STREAK_DAYS,
                     "scalar",
                     "d",
                     "longest run of days with a weigh-in, program to date",
                 ),
                 OutputSpec::new(
-                    "longest_gap_days",
+                    names::LONGEST_GAP_DAYS,
                     "scalar",
                     "d",
                     "longest run of days with no record, program to date",
                 ),
                 OutputSpec::new(
-                    "days_since_last_record",
+                    names::DAYS_SINCE_LAST_RECORD,
                     "scalar",
                     "d",
                     "days from the last record to the end of observation",
                 ),
                 OutputSpec::new(
-                    "gap",
+                    AdherenceFlag::Gap.as_str(),
                     "flag",
                     "",
                     "no record for gap_flag_days days or more",
@@ -412,39 +412,25 @@ impl MetricModule for AdherenceModule {
 
         let mut output = ModuleOutput::default();
         output.tables.push(Table {
-            name: "weekly".into(),
-            label: "Adherence by week (weeks start on Monday)".into(),
-            columns: vec![
-                Column::new("week_start", "", "Week of"),
-                Column::new("days_covered", "d", "Days in program"),
-                Column::new("weigh_ins", "d", "Days weighed"),
-                Column::new("food_log_days", "d", "Days with food log"),
-                Column::new(
-                    "activity_minutes",
-                    "min",
-                    "Activity minutes (moderate-equivalent)",
-                ),
-                Column::new("sessions_offered", "", "Sessions offered"),
-                Column::new("sessions_attended", "", "Sessions attended"),
-                Column::new("met_weigh_in_target", "", "Weigh-in target met"),
-                Column::new("met_food_log_target", "", "Food-log target met"),
-                Column::new("met_activity_target", "", "Activity target met"),
-            ],
+            name: names::WEEKLY.into(),
+            label: WEEKLY_LABEL.into(),
+            columns: WeekRow::columns(),
             rows: weeks
                 .iter()
                 .map(|w| {
-                    vec![
-                        Cell::Text(w.start.to_string()),
-                        Cell::Number(w.covered as f64),
-                        Cell::Number(w.weigh_ins as f64),
-                        Cell::Number(w.food_log_days as f64),
-                        Cell::Number(w.activity_minutes),
-                        Cell::Number(w.sessions_offered as f64),
-                        Cell::Number(w.sessions_attended as f64),
-                        yes_no(w.met_weigh_in),
-                        yes_no(w.met_food_log),
-                        yes_no(w.met_activity),
-                    ]
+                    WeekRow {
+                        week_start: w.start,
+                        days_covered: Some(w.covered as f64),
+                        weigh_ins: Some(w.weigh_ins as f64),
+                        food_log_days: Some(w.food_log_days as f64),
+                        activity_minutes: Some(w.activity_minutes),
+                        sessions_offered: Some(w.sessions_offered as f64),
+                        sessions_attended: Some(w.sessions_attended as f64),
+                        met_weigh_in_target: Some(w.met_weigh_in),
+                        met_food_log_target: Some(w.met_food_log),
+                        met_activity_target: Some(w.met_activity),
+                    }
+                    .write()
                 })
                 .collect(),
         });
@@ -465,19 +451,19 @@ impl MetricModule for AdherenceModule {
                 .collect(),
         };
         output.series.push(series(
-            "weekly_activity_minutes",
+            names::WEEKLY_ACTIVITY_MINUTES,
             "min",
             "Activity minutes per week (moderate-equivalent)",
             &|w| w.activity_minutes,
         ));
         output.series.push(series(
-            "weekly_weigh_ins",
+            names::WEEKLY_WEIGH_INS,
             "d",
             "Days weighed per week",
             &|w| w.weigh_ins as f64,
         ));
         output.series.push(series(
-            "weekly_food_log_days",
+            names::WEEKLY_FOOD_LOG_DAYS,
             "d",
             "Days with a food log per week",
             &|w| w.food_log_days as f64,
@@ -488,38 +474,38 @@ impl MetricModule for AdherenceModule {
         let covered = span_days(pa, pb);
         let per_week = |n: f64| (covered > 0).then(|| n * 7.0 / covered as f64);
         output.push_scalar(
-            "weigh_ins_per_week",
+            names::WEIGH_INS_PER_WEEK,
             per_week(count_in(&rec.weigh_in_days, pa, pb) as f64),
             "d/wk",
             "Days weighed per week",
         );
         output.push_scalar(
-            "food_log_days_per_week",
+            names::FOOD_LOG_DAYS_PER_WEEK,
             per_week(count_in(&rec.food_days, pa, pb) as f64),
             "d/wk",
             "Days with a food log per week",
         );
         output.push_scalar(
-            "activity_minutes_per_week",
+            names::ACTIVITY_MINUTES_PER_WEEK,
             per_week(sum_in(&rec.activity_minutes, pa, pb)),
             "min/wk",
             "Activity minutes per week (moderate-equivalent)",
         );
         let (offered, attended) = rec.sessions_in(pa, pb);
         output.push_scalar(
-            "sessions_offered",
+            names::SESSIONS_OFFERED,
             Some(offered as f64),
             "",
             "Sessions offered",
         );
         output.push_scalar(
-            "sessions_attended",
+            names::SESSIONS_ATTENDED,
             Some(attended as f64),
             "",
             "Sessions attended",
         );
         output.push_scalar(
-            "attendance_percent",
+            names::ATTENDANCE_PERCENT,
             (offered > 0).then(|| 100.0 * attended as f64 / offered as f64),
             "%",
             "Sessions attended",
@@ -529,19 +515,19 @@ impl MetricModule for AdherenceModule {
         // standards count sessions over months, not weeks).
         let (offered_all, attended_all) = rec.sessions_in(start, end);
         output.push_scalar(
-            "sessions_offered_to_date",
+            names::SESSIONS_OFFERED_TO_DATE,
             Some(offered_all as f64),
             "",
             "Sessions offered since enrolment",
         );
         output.push_scalar(
-            "sessions_attended_to_date",
+            names::SESSIONS_ATTENDED_TO_DATE,
             Some(attended_all as f64),
             "",
             "Sessions attended since enrolment",
         );
         output.push_scalar(
-            "attendance_to_date_percent",
+            names::ATTENDANCE_TO_DATE_PERCENT,
             (offered_all > 0).then(|| 100.0 * attended_all as f64 / offered_all as f64),
             "%",
             "Sessions attended since enrolment",
@@ -551,7 +537,7 @@ impl MetricModule for AdherenceModule {
             .filter(|w| covered > 0 && w.start <= pb && w.start + Duration::days(6) >= pa)
             .collect();
         output.push_scalar(
-            "weeks_meeting_activity_target_percent",
+            names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,
             (!period_weeks.is_empty()).then(|| {
                 100.0 * period_weeks.iter().filter(|w| w.met_activity).count() as f64
                     / period_weeks.len() as f64
@@ -563,7 +549,7 @@ impl MetricModule for AdherenceModule {
         // Program-to-date streaks and gaps.
         let observed = start <= end;
         output.push_scalar(
-            "longest_weigh_in_streak_days",
+            names::LONGEST_WEIGH_IN_STREAK_DAYS,
             observed.then(|| longest_streak(&rec.weigh_in_days) as f64),
             "d",
             "Longest run of days weighed",
@@ -581,14 +567,14 @@ impl MetricModule for AdherenceModule {
             (0, 0)
         };
         output.push_scalar(
-            "longest_gap_days",
+            names::LONGEST_GAP_DAYS,
             observed.then_some(longest_gap as f64),
             "d",
             "Longest run of days with no record",
         );
         let last = any_record.last().copied();
         output.push_scalar(
-            "days_since_last_record",
+            names::DAYS_SINCE_LAST_RECORD,
             last.map(|l| (end - l).num_days() as f64),
             "d",
             "Days since the last record",
@@ -602,7 +588,7 @@ impl MetricModule for AdherenceModule {
                 None => " since enrolment".to_string(),
             };
             output.push_flag(
-                "gap",
+                AdherenceFlag::Gap.as_str(),
                 FlagSeverity::Notice,
                 format!(
                     "No weigh-in, food log or activity has been recorded for {current_gap} days{since}. \

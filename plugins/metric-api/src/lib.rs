@@ -18,9 +18,11 @@
 #![warn(missing_docs)]
 
 pub mod data;
+pub mod fixture;
 pub mod output;
 pub mod protocol;
 pub mod units;
+pub mod view;
 
 pub use data::*;
 pub use output::*;

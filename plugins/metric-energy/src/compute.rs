@@ -28,10 +28,12 @@ use crate::equations::{RestingEquation, activity_kcal_net, jackson_2002_body_fat
 use baseline::{Baseline, baseline_requirement};
 use chrono::Datelike as _;
 use chrono::{Days, NaiveDate};
+use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_api::{
     Cell, Column, FlagSeverity, ModuleContext, ModuleError, ModuleOutput, ParticipantData, Point,
     Series, Sex, Table,
 };
+use cohortpress_metric_trend::view::{PeriodKind, TrendView};
 use std::collections::BTreeMap;
 
 /// β = β_TEF + β_AT: the part of an intake change the body gives back (Hall et al. 2011).
@@ -144,7 +146,7 @@ impl Band {
 }
 
 struct TrendPeriod {
-    kind: String,
+    kind: PeriodKind,
     start: NaiveDate,
     end: NaiveDate,
     slope_wk: Option<f64>,
@@ -163,68 +165,49 @@ struct Trend {
     periods: Vec<TrendPeriod>,
 }
 
-fn series_map(out: &ModuleOutput, name: &str, to: NaiveDate) -> BTreeMap<NaiveDate, Band> {
-    out.series(name)
-        .map(|s| {
-            s.points
-                .iter()
-                .filter(|p| p.date <= to && p.value.is_finite())
-                .map(|p| {
-                    (
-                        p.date,
-                        Band {
-                            value: p.value,
-                            lower: p.lower,
-                            upper: p.upper,
-                        },
-                    )
-                })
-                .collect()
+fn series_map(s: &Series, to: NaiveDate) -> BTreeMap<NaiveDate, Band> {
+    s.points
+        .iter()
+        .filter(|p| p.date <= to && p.value.is_finite())
+        .map(|p| {
+            (
+                p.date,
+                Band {
+                    value: p.value,
+                    lower: p.lower,
+                    upper: p.upper,
+                },
+            )
         })
-        .unwrap_or_default()
+        .collect()
 }
 
-fn parse_trend(out: &ModuleOutput, to: NaiveDate) -> Trend {
-    let mut t = Trend {
-        level: series_map(out, "weight_trend", to),
-        slope: series_map(out, "weight_slope", to),
-        slope28: series_map(out, "weight_slope_28d", to),
-        periods: vec![],
-    };
-    if let Some(table) = out.table("periods") {
-        let idx = |n: &str| table.columns.iter().position(|c| c.name == n);
-        let text = |row: &[Cell], n: &str| match idx(n).and_then(|i| row.get(i)) {
-            Some(Cell::Text(s)) => Some(s.clone()),
-            _ => None,
-        };
-        let num = |row: &[Cell], n: &str| match idx(n).and_then(|i| row.get(i)) {
-            Some(Cell::Number(x)) if x.is_finite() => Some(*x),
-            _ => None,
-        };
-        let date = |row: &[Cell], n: &str| {
-            text(row, n).and_then(|s| NaiveDate::parse_from_str(&s, "%Y-%m-%d").ok())
-        };
-        for row in &table.rows {
-            let (Some(kind), Some(start), Some(end)) =
-                (text(row, "kind"), date(row, "start"), date(row, "end"))
-            else {
-                continue;
-            };
-            if start > to {
-                continue;
-            }
-            t.periods.push(TrendPeriod {
-                kind,
-                start,
-                end: end.min(to),
-                slope_wk: num(row, "slope_kg_per_week"),
-                lower_wk: num(row, "slope_lower_kg_per_week"),
-                upper_wk: num(row, "slope_upper_kg_per_week"),
-                weight_start: num(row, "weight_start_kg"),
-            });
-        }
+/// The parts of the trend's view this module uses, cut at `to`.
+fn parse_trend(view: &TrendView, to: NaiveDate) -> Trend {
+    let finite = |x: Option<f64>| x.filter(|x| x.is_finite());
+    Trend {
+        level: series_map(&view.weight_trend, to),
+        slope: series_map(&view.weight_slope, to),
+        slope28: view
+            .weight_slope_28d
+            .as_ref()
+            .map(|s| series_map(s, to))
+            .unwrap_or_default(),
+        periods: view
+            .periods
+            .iter()
+            .filter(|row| row.start <= to)
+            .map(|row| TrendPeriod {
+                kind: row.kind,
+                start: row.start,
+                end: row.end.min(to),
+                slope_wk: finite(row.slope_kg_per_week),
+                lower_wk: finite(row.slope_lower_kg_per_week),
+                upper_wk: finite(row.slope_upper_kg_per_week),
+                weight_start: finite(row.weight_start_kg),
+            })
+            .collect(),
     }
-    t
 }
 
 /// Mean of the values (and of the bounds, when every point has them) over [from, to].
@@ -481,8 +464,17 @@ pub(crate) fn run(
     let mut out = ModuleOutput::default();
     let to = ctx.period.to;
     let enrolled = data.profile.enrolled;
-    let trend_out = ctx.earlier.get("trend");
-    let trend = trend_out.map(|o| parse_trend(o, to)).unwrap_or_default();
+    // The trend's output, read through its view (an output that does not read is treated as
+    // no trend, and fails loudly in debug builds).
+    let trend_out = ctx.earlier.get(TrendView::MODULE).and_then(|o| {
+        TrendView::from_output(o)
+            .inspect_err(|e| debug_assert!(false, "{e}"))
+            .ok()
+    });
+    let trend = trend_out
+        .as_ref()
+        .map(|t| parse_trend(t, to))
+        .unwrap_or_default();
     if trend_out.is_none() {
         out.push_flag(
             "insufficient_data",
@@ -1422,7 +1414,12 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
         (Some(l), Some(u)) => (u - l).abs() / (2.0 * Z_95),
         _ => 0.0,
     };
-    for per in p.trend.periods.iter().filter(|x| x.kind == "plateau") {
+    for per in p
+        .trend
+        .periods
+        .iter()
+        .filter(|x| x.kind == PeriodKind::Plateau)
+    {
         // The whole plateau, with the trend's exact slope interval for it when the period
         // gives one (a longer window measures the intake during the plateau more precisely).
         let during_to = per.end;

@@ -17,6 +17,7 @@ pub mod dynamics;
 pub mod equations;
 
 mod compute;
+pub mod view;
 
 pub use dynamics::{HallModel, HallState, LinearisedModel, energy_density_of_weight_change};
 pub use equations::{
@@ -228,6 +229,30 @@ impl MetricModule for EnergyModule {
                 "scalar",
                 "%",
                 "Baseline body fat seeding the model",
+            ),
+            OutputSpec::new(
+                "pal_estimate",
+                "scalar",
+                "",
+                "Baseline activity level (TEE/RMR) after combining the prior with the food logs",
+            ),
+            OutputSpec::new(
+                "implied_intake_lower_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "Lower 95 % bound of the implied intake (advice is checked against it)",
+            ),
+            OutputSpec::new(
+                "implied_intake_upper_kcal_per_day",
+                "scalar",
+                "kcal/d",
+                "Upper 95 % bound of the implied intake",
+            ),
+            OutputSpec::new(
+                "underreporting_percent",
+                "scalar",
+                "%",
+                "Share of the implied intake missing from the food log, 95 % interval",
             ),
             OutputSpec::new("rmr_equation", "text", "", "Resting energy equation used"),
             OutputSpec::new(

@@ -58,13 +58,22 @@ use cohortpress_metric_api::units::{
     CM_PER_IN, GLUCOSE_MGDL_PER_MMOLL, Mass, hba1c_percent_to_mmolmol,
 };
 use cohortpress_metric_api::{
-    Cell, Column, FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError,
-    ModuleOutput, ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
+    FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError, ModuleOutput,
+    ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
 };
 use std::collections::BTreeMap;
 
 /// Id of this module in `program.yaml`.
 pub const MODULE_ID: &str = "outcomes";
+
+pub mod view;
+
+use cohortpress_metric_api::view::{ModuleView, TableRow};
+use cohortpress_metric_trend::view::TrendView;
+use view::{
+    BmiCategory, CurrentWeightSource, LABS_LABEL, LabCategory, LabRow, MILESTONES_LABEL,
+    MilestoneRow, OutcomesFlag, WeightChangeCategory, names,
+};
 
 /// Id of the module whose outputs this one reads.
 pub const TREND_MODULE: &str = "trend";
@@ -120,18 +129,24 @@ pub fn bmi(kg: f64, m: f64) -> f64 {
 /// assert_eq!(who_bmi_category(25.0).0, "overweight");
 /// ```
 pub fn who_bmi_category(bmi: f64) -> (&'static str, &'static str) {
+    let c = who_bmi_class(bmi);
+    (c.as_str(), c.label())
+}
+
+/// WHO adult BMI class of `bmi` (kg/m²); see [`who_bmi_category`].
+pub fn who_bmi_class(bmi: f64) -> BmiCategory {
     if at_least(bmi, 40.0) {
-        ("obesity_class_3", "obesity class III")
+        BmiCategory::ObesityClass3
     } else if at_least(bmi, 35.0) {
-        ("obesity_class_2", "obesity class II")
+        BmiCategory::ObesityClass2
     } else if at_least(bmi, 30.0) {
-        ("obesity_class_1", "obesity class I")
+        BmiCategory::ObesityClass1
     } else if at_least(bmi, 25.0) {
-        ("overweight", "overweight (pre-obese)")
+        BmiCategory::Overweight
     } else if at_least(bmi, 18.5) {
-        ("normal", "normal weight")
+        BmiCategory::Normal
     } else {
-        ("underweight", "underweight")
+        BmiCategory::Underweight
     }
 }
 
@@ -152,12 +167,16 @@ pub fn who_bmi_category(bmi: f64) -> (&'static str, &'static str) {
 /// assert_eq!(hba1c_category(6.5), "diabetes_range");
 /// ```
 pub fn hba1c_category(percent: f64) -> &'static str {
+    hba1c_class(percent).as_str()
+}
+
+fn hba1c_class(percent: f64) -> LabCategory {
     if at_least(percent, 6.5) {
-        "diabetes_range"
+        LabCategory::DiabetesRange
     } else if at_least(percent, 5.7) {
-        "prediabetes_range"
+        LabCategory::PrediabetesRange
     } else {
-        "normal"
+        LabCategory::Normal
     }
 }
 
@@ -187,13 +206,17 @@ pub fn hba1c_category(percent: f64) -> &'static str {
 /// assert_eq!(fasting_glucose_category(7.0), "diabetes_range");
 /// ```
 pub fn fasting_glucose_category(mmol_l: f64) -> &'static str {
+    fasting_glucose_class(mmol_l).as_str()
+}
+
+fn fasting_glucose_class(mmol_l: f64) -> LabCategory {
     let mg_dl = mmol_l * GLUCOSE_MGDL_PER_MMOLL;
     if at_least(mg_dl, 126.0) {
-        "diabetes_range"
+        LabCategory::DiabetesRange
     } else if at_least(mg_dl, 100.0) {
-        "prediabetes_range"
+        LabCategory::PrediabetesRange
     } else {
-        "normal"
+        LabCategory::Normal
     }
 }
 
@@ -205,16 +228,20 @@ pub fn fasting_glucose_category(mmol_l: f64) -> &'static str {
 /// Men: > 94 cm increased, > 102 cm substantially increased; women: > 80 cm and > 88 cm
 /// (WHO expert consultation on waist circumference, 2008, published 2011; from memory).
 pub fn waist_category(cm: f64, sex: Sex) -> &'static str {
+    waist_class(cm, sex).as_str()
+}
+
+fn waist_class(cm: f64, sex: Sex) -> LabCategory {
     let (increased, substantially) = match sex {
         Sex::Male => (94.0, 102.0),
         Sex::Female => (80.0, 88.0),
     };
     if cm > substantially + CUT_EPS {
-        "substantially_increased_risk"
+        LabCategory::SubstantiallyIncreasedRisk
     } else if cm > increased + CUT_EPS {
-        "increased_risk"
+        LabCategory::IncreasedRisk
     } else {
-        "not_increased_risk"
+        LabCategory::NotIncreasedRisk
     }
 }
 
@@ -250,41 +277,25 @@ pub fn eag_mg_dl(a1c_percent: f64) -> f64 {
 /// assert_eq!(weight_change_category(-5.0).0, "loss_5_to_7");
 /// ```
 pub fn weight_change_category(percent: f64) -> (&'static str, &'static str) {
+    let c = weight_change_class(percent);
+    (c.as_str(), c.label())
+}
+
+/// Weight-change category of a change in % of baseline; see [`weight_change_category`].
+pub fn weight_change_class(percent: f64) -> WeightChangeCategory {
     let loss = -percent;
     if at_least(percent, 3.0) {
-        ("gain_3_or_more", "gain of 3 % or more")
+        WeightChangeCategory::Gain3OrMore
     } else if at_least(loss, 10.0) {
-        ("loss_10_or_more", "loss of 10 % or more")
+        WeightChangeCategory::Loss10OrMore
     } else if at_least(loss, 7.0) {
-        ("loss_7_to_10", "loss of 7 % to under 10 %")
+        WeightChangeCategory::Loss7To10
     } else if at_least(loss, 5.0) {
-        ("loss_5_to_7", "loss of 5 % to under 7 %")
+        WeightChangeCategory::Loss5To7
     } else if at_least(loss, 3.0) {
-        ("loss_3_to_5", "loss of 3 % to under 5 %")
+        WeightChangeCategory::Loss3To5
     } else {
-        ("stable", "stable (within 3 %)")
-    }
-}
-
-fn category_label(code: &str) -> &'static str {
-    match code {
-        "normal" => "normal range",
-        "prediabetes_range" => "in the prediabetes range",
-        "diabetes_range" => "in the diabetes range",
-        "not_increased_risk" => "not increased",
-        "increased_risk" => "increased",
-        "substantially_increased_risk" => "substantially increased",
-        _ => "recorded",
-    }
-}
-
-fn test_code(t: LabTest) -> &'static str {
-    match t {
-        LabTest::FastingGlucose => "fasting_glucose",
-        LabTest::Hba1c => "hba1c",
-        LabTest::Waist => "waist",
-        LabTest::SystolicBp => "systolic_bp",
-        LabTest::DiastolicBp => "diastolic_bp",
+        WeightChangeCategory::Stable
     }
 }
 
@@ -299,12 +310,12 @@ fn test_words(t: LabTest) -> &'static str {
 }
 
 /// Category code of one lab result.
-fn lab_category(lab: &LabResult, sex: Sex) -> &'static str {
+fn lab_category(lab: &LabResult, sex: Sex) -> LabCategory {
     match lab.test {
-        LabTest::FastingGlucose => fasting_glucose_category(lab.value),
-        LabTest::Hba1c => hba1c_category(lab.value),
-        LabTest::Waist => waist_category(lab.value, sex),
-        LabTest::SystolicBp | LabTest::DiastolicBp => "recorded",
+        LabTest::FastingGlucose => fasting_glucose_class(lab.value),
+        LabTest::Hba1c => hba1c_class(lab.value),
+        LabTest::Waist => waist_class(lab.value, sex),
+        LabTest::SystolicBp | LabTest::DiastolicBp => LabCategory::Recorded,
     }
 }
 
@@ -463,98 +474,114 @@ impl MetricModule for OutcomesModule {
             ],
             outputs: vec![
                 OutputSpec::new(
-                    "baseline_weight_kg",
+                    names::BASELINE_WEIGHT_KG,
                     "scalar",
                     "kg",
                     "first weigh-in day on or after enrolment",
                 ),
                 OutputSpec::new(
-                    "current_weight_kg",
+                    names::CURRENT_WEIGHT_KG,
                     "scalar",
                     "kg",
                     "trend weight at the end of the period",
                 ),
-                OutputSpec::new("change_kg", "scalar", "kg", "current − baseline"),
+                OutputSpec::new(names::CHANGE_KG, "scalar", "kg", "current − baseline"),
                 OutputSpec::new(
-                    "change_percent",
+                    names::CHANGE_PERCENT,
                     "scalar",
                     "%",
                     "100·(current − baseline)/baseline; negative = loss",
                 ),
-                OutputSpec::new("bmi_baseline_kg_m2", "scalar", "kg/m2", "BMI at baseline"),
-                OutputSpec::new("bmi_current_kg_m2", "scalar", "kg/m2", "BMI now"),
-                OutputSpec::new("bmi_change_kg_m2", "scalar", "kg/m2", "BMI change"),
-                OutputSpec::new("rate_kg_per_week", "scalar", "kg/wk", "trend slope"),
                 OutputSpec::new(
-                    "max_loss_percent",
+                    names::BMI_BASELINE_KG_M2,
+                    "scalar",
+                    "kg/m2",
+                    "BMI at baseline",
+                ),
+                OutputSpec::new(names::BMI_CURRENT_KG_M2, "scalar", "kg/m2", "BMI now"),
+                OutputSpec::new(names::BMI_CHANGE_KG_M2, "scalar", "kg/m2", "BMI change"),
+                OutputSpec::new(names::RATE_KG_PER_WEEK, "scalar", "kg/wk", "trend slope"),
+                OutputSpec::new(
+                    names::MAX_LOSS_PERCENT,
                     "scalar",
                     "%",
                     "largest loss on the trend so far (positive = loss)",
                 ),
                 OutputSpec::new(
-                    "bmi_category_baseline",
+                    names::BMI_CATEGORY_BASELINE,
                     "text",
                     "",
                     "WHO BMI class at baseline",
                 ),
-                OutputSpec::new("bmi_category_current", "text", "", "WHO BMI class now"),
+                OutputSpec::new(names::BMI_CATEGORY_CURRENT, "text", "", "WHO BMI class now"),
                 OutputSpec::new(
-                    "weight_change_category",
+                    names::WEIGHT_CHANGE_CATEGORY,
                     "text",
                     "",
                     "weight-change category",
                 ),
                 OutputSpec::new(
-                    "current_weight_source",
+                    names::CURRENT_WEIGHT_SOURCE,
                     "text",
                     "",
                     "`trend` or `weigh_ins`",
                 ),
                 OutputSpec::new(
-                    "milestones",
+                    names::MILESTONES,
                     "table",
                     "",
                     "3/5/7/10 % milestones and the day each was reached",
                 ),
                 OutputSpec::new(
-                    "labs",
+                    names::LABS,
                     "table",
                     "",
                     "lab values in both units with categories",
                 ),
                 OutputSpec::new(
-                    "fast_loss",
+                    OutcomesFlag::InsufficientData.as_str(),
+                    "flag",
+                    "",
+                    "no weigh-in on or after enrolment yet",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::FastLoss.as_str(),
                     "flag",
                     "",
                     "sustained loss faster than the limit",
                 ),
                 OutputSpec::new(
-                    "low_intake",
+                    OutcomesFlag::LowIntake.as_str(),
                     "flag",
                     "",
                     "mean logged intake below the floor",
                 ),
                 OutputSpec::new(
-                    "very_low_intake",
+                    OutcomesFlag::VeryLowIntake.as_str(),
                     "flag",
                     "",
                     "mean logged intake below the VLCD limit",
                 ),
-                OutputSpec::new("low_bmi", "flag", "", "current BMI under 18.5"),
                 OutputSpec::new(
-                    "lab_diabetes_range",
+                    OutcomesFlag::LowBmi.as_str(),
+                    "flag",
+                    "",
+                    "current BMI under 18.5",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::LabDiabetesRange.as_str(),
                     "flag",
                     "",
                     "latest lab value in the diabetes range",
                 ),
                 OutputSpec::new(
-                    "lab_prediabetes_range",
+                    OutcomesFlag::LabPrediabetesRange.as_str(),
                     "flag",
                     "",
                     "latest lab value in the prediabetes range",
                 ),
                 OutputSpec::new(
-                    "medication_review",
+                    OutcomesFlag::MedicationReview.as_str(),
                     "flag",
                     "",
                     "glucose-lowering medicine with fast loss or low intake",
@@ -571,7 +598,13 @@ impl MetricModule for OutcomesModule {
     ) -> Result<ModuleOutput, ModuleError> {
         let profile = &data.profile;
         let to = ctx.period.to;
-        let trend = ctx.earlier.get(TREND_MODULE);
+        // The trend's output, read through its view (an output that does not read is treated
+        // as no trend, and fails loudly in debug builds).
+        let trend = ctx.earlier.get(TREND_MODULE).and_then(|o| {
+            TrendView::from_output(o)
+                .inspect_err(|e| debug_assert!(false, "{e}"))
+                .ok()
+        });
         let mut output = ModuleOutput::default();
 
         // Baseline: the first weigh-in day on or after enrolment, mean of that day.
@@ -580,13 +613,18 @@ impl MetricModule for OutcomesModule {
         let w0 = baseline.map(|b| b.1);
 
         // Current weight: the trend's, else the last weigh-in day.
-        let trend_current = trend.and_then(|t| t.scalar_full("current_weight_kg"));
+        let trend_current = trend.as_ref().map(|t| t.current_weight_kg);
         let (current, lower, upper, source) = match trend_current {
-            Some(s) if s.value.is_some() => (s.value, s.lower, s.upper, "trend"),
-            _ => (raw.last().map(|r| r.1), None, None, "weigh_ins"),
+            Some(s) if s.value.is_some() => (s.value, s.lower, s.upper, CurrentWeightSource::Trend),
+            _ => (
+                raw.last().map(|r| r.1),
+                None,
+                None,
+                CurrentWeightSource::WeighIns,
+            ),
         };
         // Trend levels from the trend series, else from the raw daily means.
-        let levels: Vec<(NaiveDate, f64)> = match trend.and_then(|t| t.series("weight_trend")) {
+        let levels: Vec<(NaiveDate, f64)> = match trend.as_ref().map(|t| &t.weight_trend) {
             Some(s) if !s.points.is_empty() => {
                 let by_day: BTreeMap<NaiveDate, f64> = s
                     .points
@@ -605,26 +643,26 @@ impl MetricModule for OutcomesModule {
         let change_pct = w0.zip(change).map(|(a, c)| 100.0 * c / a);
         let (bmi0, bmi1) = (bmi_of(w0), bmi_of(current));
 
-        output.push_scalar("baseline_weight_kg", w0, "kg", "Starting weight");
+        output.push_scalar(names::BASELINE_WEIGHT_KG, w0, "kg", "Starting weight");
         output.push_interval(
-            "current_weight_kg",
+            names::CURRENT_WEIGHT_KG,
             current,
             lower,
             upper,
             "kg",
             "Current weight",
         );
-        output.push_scalar("change_kg", change, "kg", "Weight change");
-        output.push_scalar("change_percent", change_pct, "%", "Weight change");
-        output.push_scalar("bmi_baseline_kg_m2", bmi0, "kg/m2", "Starting BMI");
-        output.push_scalar("bmi_current_kg_m2", bmi1, "kg/m2", "Current BMI");
+        output.push_scalar(names::CHANGE_KG, change, "kg", "Weight change");
+        output.push_scalar(names::CHANGE_PERCENT, change_pct, "%", "Weight change");
+        output.push_scalar(names::BMI_BASELINE_KG_M2, bmi0, "kg/m2", "Starting BMI");
+        output.push_scalar(names::BMI_CURRENT_KG_M2, bmi1, "kg/m2", "Current BMI");
         output.push_scalar(
-            "bmi_change_kg_m2",
+            names::BMI_CHANGE_KG_M2,
             bmi0.zip(bmi1).map(|(a, b)| b - a),
             "kg/m2",
             "BMI change",
         );
-        let rate = match trend.and_then(|t| t.scalar("slope_kg_per_week")) {
+        let rate = match trend.as_ref().and_then(|t| t.slope_kg_per_week.value) {
             Some(r) => Some(r),
             None => {
                 let in_period: Vec<_> = raw
@@ -635,35 +673,41 @@ impl MetricModule for OutcomesModule {
                 ols_slope_per_week(&in_period)
             }
         };
-        output.push_scalar("rate_kg_per_week", rate, "kg/wk", "Rate of change per week");
+        output.push_scalar(
+            names::RATE_KG_PER_WEEK,
+            rate,
+            "kg/wk",
+            "Rate of change per week",
+        );
         let max_loss = w0.filter(|_| !levels.is_empty()).map(|w0| {
             levels
                 .iter()
                 .map(|(_, l)| 100.0 * (w0 - l) / w0)
                 .fold(0.0, f64::max)
         });
-        output.push_scalar("max_loss_percent", max_loss, "%", "Largest loss so far");
+        output.push_scalar(
+            names::MAX_LOSS_PERCENT,
+            max_loss,
+            "%",
+            "Largest loss so far",
+        );
 
         if let Some(b) = bmi0 {
-            let (code, label) = who_bmi_category(b);
-            output.push_text("bmi_category_baseline", code, label);
+            let c = who_bmi_class(b);
+            output.push_text(names::BMI_CATEGORY_BASELINE, c.as_str(), c.label());
         }
         if let Some(b) = bmi1 {
-            let (code, label) = who_bmi_category(b);
-            output.push_text("bmi_category_current", code, label);
+            let c = who_bmi_class(b);
+            output.push_text(names::BMI_CATEGORY_CURRENT, c.as_str(), c.label());
         }
         if let Some(p) = change_pct {
-            let (code, label) = weight_change_category(p);
-            output.push_text("weight_change_category", code, label);
+            let c = weight_change_class(p);
+            output.push_text(names::WEIGHT_CHANGE_CATEGORY, c.as_str(), c.label());
         }
         output.push_text(
-            "current_weight_source",
-            source,
-            if source == "trend" {
-                "weight trend"
-            } else {
-                "last weigh-in"
-            },
+            names::CURRENT_WEIGHT_SOURCE,
+            source.as_str(),
+            source.label(),
         );
 
         // Milestones: first day the trend level is at or below the threshold weight.
@@ -673,58 +717,44 @@ impl MetricModule for OutcomesModule {
             let reached = threshold
                 .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
                 .map(|(d, _)| *d);
-            rows.push(vec![
-                Cell::Number(t),
-                threshold.map_or(Cell::Empty, Cell::Number),
-                Cell::Text(if reached.is_some() { "yes" } else { "no" }.into()),
-                reached.map_or(Cell::Empty, |d| Cell::Text(d.to_string())),
-            ]);
+            rows.push(
+                MilestoneRow {
+                    threshold_percent: t,
+                    threshold_weight_kg: threshold,
+                    reached: reached.is_some(),
+                    date_reached: reached,
+                }
+                .write(),
+            );
         }
         output.tables.push(Table {
-            name: "milestones".into(),
-            label: "Weight-loss milestones".into(),
-            columns: vec![
-                Column::new("threshold_percent", "%", "Loss of"),
-                Column::new("threshold_weight_kg", "kg", "Weight at or below"),
-                Column::new("reached", "", "Reached"),
-                Column::new("date_reached", "", "First reached on"),
-            ],
+            name: names::MILESTONES.into(),
+            label: MILESTONES_LABEL.into(),
+            columns: MilestoneRow::columns(),
             rows,
         });
 
         // Labs up to the end of the period.
         let labs: Vec<&LabResult> = data.labs.iter().filter(|l| l.date <= to).collect();
         output.tables.push(Table {
-            name: "labs".into(),
-            label: "Lab results and measurements".into(),
-            columns: vec![
-                Column::new("date", "", "Date"),
-                Column::new("test", "", "Test"),
-                Column::new("value", "", "Value"),
-                Column::new("unit", "", "Unit"),
-                Column::new("value_alt", "", "Value (other unit)"),
-                Column::new("unit_alt", "", "Other unit"),
-                Column::new("category", "", "Category"),
-                Column::new("eag_mg_dl", "mg/dL", "Estimated average glucose"),
-            ],
+            name: names::LABS.into(),
+            label: LABS_LABEL.into(),
+            columns: LabRow::columns(),
             rows: labs
                 .iter()
                 .map(|l| {
                     let alt = lab_alt(l);
-                    vec![
-                        Cell::Text(l.date.to_string()),
-                        Cell::Text(test_code(l.test).into()),
-                        Cell::Number(l.value),
-                        Cell::Text(l.test.canonical_unit().into()),
-                        alt.map_or(Cell::Empty, |a| Cell::Number(a.0)),
-                        alt.map_or(Cell::Empty, |a| Cell::Text(a.1.into())),
-                        Cell::Text(lab_category(l, profile.sex).into()),
-                        if l.test == LabTest::Hba1c {
-                            Cell::Number(eag_mg_dl(l.value))
-                        } else {
-                            Cell::Empty
-                        },
-                    ]
+                    LabRow {
+                        date: l.date,
+                        test: l.test,
+                        value: l.value,
+                        unit: l.test.canonical_unit().into(),
+                        value_alt: alt.map(|a| a.0),
+                        unit_alt: alt.map(|a| a.1.into()),
+                        category: lab_category(l, profile.sex),
+                        eag_mg_dl: (l.test == LabTest::Hba1c).then(|| eag_mg_dl(l.value)),
+                    }
+                    .write()
                 })
                 .collect(),
         });
@@ -732,7 +762,7 @@ impl MetricModule for OutcomesModule {
         // ---- Flags ----
         if w0.is_none() {
             output.push_flag(
-                "insufficient_data",
+                OutcomesFlag::InsufficientData.as_str(),
                 FlagSeverity::Info,
                 "No weigh-in on or after enrolment yet, so weight outcomes cannot be shown.",
             );
@@ -753,7 +783,7 @@ impl MetricModule for OutcomesModule {
             fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
         if let Some((fastest, (d0, d1, rate))) = fast {
             output.push_flag(
-                "fast_loss",
+                OutcomesFlag::FastLoss.as_str(),
                 FlagSeverity::Clinical,
                 format!(
                     "Weight came down faster than {} a week over {span} days in a row (most \
@@ -786,7 +816,7 @@ impl MetricModule for OutcomesModule {
             if mean < very_low {
                 low_intake = true;
                 output.push_flag(
-                    "very_low_intake",
+                    OutcomesFlag::VeryLowIntake.as_str(),
                     FlagSeverity::Clinical,
                     format!(
                         "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
@@ -800,7 +830,7 @@ impl MetricModule for OutcomesModule {
                 // Clinical like the very-low flag: intakes below the usual floors are for a
                 // licensed clinician to review (the report's cautions say so).
                 output.push_flag(
-                    "low_intake",
+                    OutcomesFlag::LowIntake.as_str(),
                     FlagSeverity::Clinical,
                     format!(
                         "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
@@ -813,10 +843,10 @@ impl MetricModule for OutcomesModule {
         }
 
         if let Some(b) = bmi1
-            && who_bmi_category(b).0 == "underweight"
+            && who_bmi_class(b) == BmiCategory::Underweight
         {
             output.push_flag(
-                "low_bmi",
+                OutcomesFlag::LowBmi.as_str(),
                 FlagSeverity::Clinical,
                 format!(
                     "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
@@ -833,8 +863,12 @@ impl MetricModule for OutcomesModule {
         for l in latest.values() {
             let category = lab_category(l, profile.sex);
             let (code, severity) = match category {
-                "diabetes_range" => ("lab_diabetes_range", FlagSeverity::Clinical),
-                "prediabetes_range" => ("lab_prediabetes_range", FlagSeverity::Notice),
+                LabCategory::DiabetesRange => {
+                    (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical)
+                }
+                LabCategory::PrediabetesRange => {
+                    (OutcomesFlag::LabPrediabetesRange, FlagSeverity::Notice)
+                }
                 _ => continue,
             };
             let shown = match l.test {
@@ -846,14 +880,14 @@ impl MetricModule for OutcomesModule {
                 ),
             };
             output.push_flag(
-                code,
+                code.as_str(),
                 severity,
                 format!(
                     "The most recent {} ({shown}, {}) is {} (ADA Standards of Care). \
                      One result is not a diagnosis; please review it with a licensed clinician.",
                     test_words(l.test),
                     l.date,
-                    category_label(category),
+                    category.label(),
                 ),
             );
         }
@@ -867,7 +901,7 @@ impl MetricModule for OutcomesModule {
                 _ => "low logged intake",
             };
             output.push_flag(
-                "medication_review",
+                OutcomesFlag::MedicationReview.as_str(),
                 FlagSeverity::Clinical,
                 format!(
                     "The profile notes a glucose-lowering medicine. With {why}, the dose that \

@@ -11,15 +11,16 @@ use chrono::{Duration, NaiveDate};
 use cohortpress_metric_api::units::{
     Length, Mass, glucose_mgdl_to_mmoll, hba1c_mmolmol_to_percent, hba1c_percent_to_mmolmol,
 };
+use cohortpress_metric_api::view::{Interval, ModuleView};
 use cohortpress_metric_api::{
     Cell, FlagSeverity, IntakeDay, LabResult, LabTest, MetricModule, ModuleContext, ModuleOutput,
-    ParticipantData, Period, Point, Profile, ProgramInfo, Series, Sex, Targets, UnitSystem,
-    WeighIn,
+    ParticipantData, Period, Point, Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
 };
 use cohortpress_metric_outcomes::{
     OutcomesModule, bmi, eag_mg_dl, fasting_glucose_category, hba1c_category, waist_category,
     weight_change_category, who_bmi_category,
 };
+use cohortpress_metric_trend::view::TrendView;
 use std::collections::BTreeMap;
 
 // ---------------------------------------------------------------------------------------------
@@ -263,39 +264,25 @@ fn trend_output(
     slope: f64,
     level: impl Fn(i64) -> f64,
 ) -> ModuleOutput {
-    let mut t = ModuleOutput::default();
     let cur = level(current_day);
-    t.push_interval(
-        "current_weight_kg",
-        Some(cur),
-        Some(cur - 0.4),
-        Some(cur + 0.4),
-        "kg",
-        "w",
-    );
-    t.push_scalar("slope_kg_per_week", Some(slope), "kg/wk", "slope");
-    t.series.push(Series {
-        name: "weight_trend".into(),
-        unit: "kg".into(),
-        step: "daily".into(),
-        label: "trend".into(),
-        points: (0..=days)
-            .map(|k| Point {
-                date: day(k),
-                value: level(k),
-                lower: None,
-                upper: None,
-            })
-            .collect(),
-    });
-    t.series.push(Series {
-        name: "weigh_ins".into(),
-        unit: "kg".into(),
-        step: "irregular".into(),
-        label: "weigh-ins".into(),
-        points: vec![],
-    });
-    t
+    let mut t = TrendView {
+        current_weight_kg: Interval {
+            value: Some(cur),
+            lower: Some(cur - 0.4),
+            upper: Some(cur + 0.4),
+        },
+        slope_kg_per_week: Interval::value(Some(slope)),
+        ..TrendView::default()
+    };
+    t.weight_trend.points = (0..=days)
+        .map(|k| Point {
+            date: day(k),
+            value: level(k),
+            lower: None,
+            upper: None,
+        })
+        .collect();
+    t.to_output()
 }
 
 fn ctx(from: NaiveDate, to: NaiveDate, trend: Option<ModuleOutput>) -> ModuleContext {

@@ -5,11 +5,13 @@
 
 use chrono::NaiveDate;
 use cohortpress_metric_api::units::{Length, Mass};
+use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_api::{
     MetricModule, ModuleContext, ParticipantData, Period, Profile, ProgramInfo, Sex, Targets,
     UnitSystem, WeighIn,
 };
 use cohortpress_metric_trend::TrendModule;
+use cohortpress_metric_trend::view::{Status, TrendView};
 use std::collections::BTreeMap;
 use std::time::Instant;
 
@@ -86,7 +88,8 @@ fn main() {
     let mut plateaus = 0;
     for p in &people {
         let out = module.compute(&ctx, p).unwrap();
-        plateaus += usize::from(out.text("status") == Some("plateau"));
+        let status = TrendView::from_output(&out).unwrap().status;
+        plateaus += usize::from(status == Status::Plateau);
     }
     println!(
         "{} participants in {:.2?} (one thread); plateau status: {plateaus}",

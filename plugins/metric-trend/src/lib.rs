@@ -24,17 +24,20 @@ pub mod fast;
 pub mod llt;
 pub mod plateau;
 pub mod theil_sen;
+pub mod view;
 
 use chrono::{Days, NaiveDate};
+use cohortpress_metric_api::view::TableRow;
 use cohortpress_metric_api::{
-    Cell, Column, FlagSeverity, MetricModule, ModuleContext, ModuleError, ModuleOutput, ModuleSpec,
-    OutputSpec, ParticipantData, Point, Series, SettingKind, SettingSpec, Table,
+    FlagSeverity, MetricModule, ModuleContext, ModuleError, ModuleOutput, ModuleSpec, OutputSpec,
+    ParticipantData, Point, Series, SettingKind, SettingSpec, Table,
 };
 use llt::{
     DIFFUSE_KAPPA, OutlierScreen, StatePrior, StepStatus, Z_95, estimate_params, kalman_filter,
     rts_smoother,
 };
 use plateau::{PlateauSettings, WindowKind, classify_window, find_periods};
+use view::{PERIODS_LABEL, PeriodKind, PeriodRow, RegainVerdict, Status, TrendFlag, names};
 
 /// Length of the windows of the `weight_slope_28d` series, days (four whole weeks, so the
 /// weekly weight cycle cancels; REFERENCE §7.3).
@@ -112,17 +115,6 @@ impl Settings {
     }
 }
 
-fn status_label(code: &str) -> &'static str {
-    match code {
-        "losing" => "Losing weight",
-        "plateau" => "Weight has levelled off after a loss",
-        "regaining" => "Weight is going up",
-        "stable" => "Weight is steady",
-        "unclear" => "Little change, but too few weigh-ins to say whether weight has levelled off",
-        _ => "Not enough weigh-ins to tell",
-    }
-}
-
 fn iso(d: NaiveDate) -> String {
     d.format("%Y-%m-%d").to_string()
 }
@@ -194,50 +186,55 @@ impl MetricModule for TrendModule {
             ],
             outputs: vec![
                 OutputSpec::new(
-                    "weight_trend",
+                    names::WEIGHT_TREND,
                     "series",
                     "kg",
                     "Smoothed weight per day with 95 % band",
                 ),
                 OutputSpec::new(
-                    "weight_slope",
+                    names::WEIGHT_SLOPE,
                     "series",
                     "kg/d",
                     "Smoothed rate of change per day with 95 % band",
                 ),
-                OutputSpec::new("weigh_ins", "series", "kg", "Weigh-ins used for the trend"),
                 OutputSpec::new(
-                    "weight_slope_28d",
+                    names::WEIGH_INS,
+                    "series",
+                    "kg",
+                    "Weigh-ins used for the trend",
+                ),
+                OutputSpec::new(
+                    names::WEIGHT_SLOPE_28D,
                     "series",
                     "kg/d",
                     "Mean rate of change over the 28 days ending each day, with 95 % band",
                 ),
                 OutputSpec::new(
-                    "plateau_confidence",
+                    names::PLATEAU_CONFIDENCE,
                     "scalar",
                     "",
                     "Probability (0–1) that the current plateau's mean slope lies in the band",
                 ),
                 OutputSpec::new(
-                    "plateau_onset",
+                    names::PLATEAU_ONSET,
                     "text",
                     "",
                     "Day the trend entered the plateau band (current plateau)",
                 ),
                 OutputSpec::new(
-                    "regain_kg",
+                    names::REGAIN_KG,
                     "scalar",
                     "kg",
                     "Trend weight now minus its lowest point so far, 95 % interval",
                 ),
                 OutputSpec::new(
-                    "regain_confidence",
+                    names::REGAIN_CONFIDENCE,
                     "scalar",
                     "",
                     "Probability (0–1) that the trend has risen more than 1 % of baseline from its lowest point",
                 ),
                 OutputSpec::new(
-                    "regain_verdict",
+                    names::REGAIN_VERDICT,
                     "text",
                     "",
                     "regaining, not_regaining, no_prior_loss or insufficient_data",
@@ -249,56 +246,56 @@ impl MetricModule for TrendModule {
                     "Offset of each non-home weigh-in source (clinic, clothed) from the home scale, taken off its readings",
                 ),
                 OutputSpec::new(
-                    "periods",
+                    names::PERIODS,
                     "table",
                     "",
                     "Plateau, regain, loss and insufficient-data periods",
                 ),
                 OutputSpec::new(
-                    "current_weight_kg",
+                    names::CURRENT_WEIGHT_KG,
                     "scalar",
                     "kg",
                     "Trend weight on the last day with a weigh-in",
                 ),
                 OutputSpec::new(
-                    "slope_kg_per_week",
+                    names::SLOPE_KG_PER_WEEK,
                     "scalar",
                     "kg/wk",
                     "Mean trend slope over the last window",
                 ),
                 OutputSpec::new(
-                    "theil_sen_slope_kg_per_week",
+                    names::THEIL_SEN_SLOPE_KG_PER_WEEK,
                     "scalar",
                     "kg/wk",
                     "Theil–Sen slope over the last window",
                 ),
                 OutputSpec::new(
-                    "noise_sd_kg",
+                    names::NOISE_SD_KG,
                     "scalar",
                     "kg",
                     "Estimated day-to-day scatter of weigh-ins around the trend",
                 ),
-                OutputSpec::new("weigh_ins_used", "scalar", "", "Weigh-ins used"),
+                OutputSpec::new(names::WEIGH_INS_USED, "scalar", "", "Weigh-ins used"),
                 OutputSpec::new(
-                    "outliers_ignored",
+                    names::OUTLIERS_IGNORED,
                     "scalar",
                     "",
                     "Weigh-ins ignored as outliers",
                 ),
                 OutputSpec::new(
-                    "days_since_last_weigh_in",
+                    names::DAYS_SINCE_LAST_WEIGH_IN,
                     "scalar",
                     "d",
                     "Days from the last weigh-in to the period end",
                 ),
                 OutputSpec::new(
-                    "status",
+                    names::STATUS,
                     "text",
                     "",
                     "losing, plateau, regaining, stable, unclear or insufficient_data",
                 ),
                 OutputSpec::new(
-                    "insufficient_data",
+                    TrendFlag::InsufficientData.as_str(),
                     "flag",
                     "",
                     "Fewer than 3 days with a weigh-in",
@@ -450,13 +447,10 @@ fn daily_means(
 }
 
 fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
-    out.push_text(
-        "status",
-        "insufficient_data",
-        status_label("insufficient_data"),
-    );
+    let status = Status::InsufficientData;
+    out.push_text(names::STATUS, status.as_str(), status.label());
     out.push_flag(
-        "insufficient_data",
+        TrendFlag::InsufficientData.as_str(),
         FlagSeverity::Info,
         format!(
             "Only {days} day(s) with a weigh-in up to {}: at least 3 are needed to estimate a weight trend.",
@@ -465,36 +459,28 @@ fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
     );
 }
 
-fn periods_table(rows: Vec<Vec<Cell>>) -> Table {
+fn periods_table(rows: &[PeriodRow]) -> Table {
+    Table {
+        name: names::PERIODS.into(),
+        label: PERIODS_LABEL.into(),
+        columns: PeriodRow::columns(),
+        rows: rows.iter().map(PeriodRow::write).collect(),
+    }
+}
+
+fn offsets_table(offsets: &[(String, f64, usize)]) -> Table {
+    use cohortpress_metric_api::{Cell, Column};
     let col = |name: &str, unit: &str, label: &str| Column {
         name: name.into(),
         unit: unit.into(),
         label: label.into(),
     };
-    Table {
-        name: "periods".into(),
-        label: "Trend periods".into(),
-        columns: vec![
-            col("kind", "", "Kind"),
-            col("start", "", "Start"),
-            col("end", "", "End"),
-            col("days", "d", "Days"),
-            col("slope_kg_per_week", "kg/wk", "Slope"),
-            col("slope_lower_kg_per_week", "kg/wk", "Slope, lower 95 %"),
-            col("slope_upper_kg_per_week", "kg/wk", "Slope, upper 95 %"),
-            col("weight_start_kg", "kg", "Weight at start"),
-            col("weight_end_kg", "kg", "Weight at end"),
-            col("confidence", "", "Confidence"),
-        ],
-        rows,
-    }
-}
-
-fn offsets_table(offsets: &[(String, f64, usize)]) -> Table {
-    let col = |name: &str, unit: &str, label: &str| Column {
-        name: name.into(),
-        unit: unit.into(),
-        label: label.into(),
+    let num = |x: f64| {
+        if x.is_finite() {
+            Cell::Number(x)
+        } else {
+            Cell::Empty
+        }
     };
     Table {
         name: "source_offsets".into(),
@@ -511,12 +497,20 @@ fn offsets_table(offsets: &[(String, f64, usize)]) -> Table {
     }
 }
 
-fn num(x: f64) -> Cell {
-    if x.is_finite() {
-        Cell::Number(x)
-    } else {
-        Cell::Empty
+/// The `periods` table's kind of a merged period (windows without one are not listed).
+fn period_kind(k: WindowKind) -> Option<PeriodKind> {
+    match k {
+        WindowKind::Plateau => Some(PeriodKind::Plateau),
+        WindowKind::Regain => Some(PeriodKind::Regain),
+        WindowKind::Loss => Some(PeriodKind::Loss),
+        WindowKind::InsufficientData => Some(PeriodKind::InsufficientData),
+        WindowKind::Stable | WindowKind::Gain | WindowKind::Undecided => None,
     }
+}
+
+/// A finite number, or `None`.
+fn finite(x: f64) -> Option<f64> {
+    x.is_finite().then_some(x)
 }
 
 /// The whole module computation; `to` is the period end (no data after it are used).
@@ -530,21 +524,21 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     let l = settings.plateau.window_days;
     if days.len() < 3 {
         out.series.push(Series {
-            name: "weight_trend".into(),
+            name: names::WEIGHT_TREND.into(),
             unit: "kg".into(),
             step: "daily".into(),
             label: "Weight trend".into(),
             points: vec![],
         });
         out.series.push(Series {
-            name: "weight_slope".into(),
+            name: names::WEIGHT_SLOPE.into(),
             unit: "kg/d".into(),
             step: "daily".into(),
             label: "Weight change per day".into(),
             points: vec![],
         });
         out.series.push(weigh_in_series(data, to, &[]));
-        out.tables.push(periods_table(vec![]));
+        out.tables.push(periods_table(&[]));
         out.tables.push(offsets_table(&offsets));
         push_missing_scalars(&mut out, n_weigh_ins, days_since);
         insufficient(&mut out, days.len(), to);
@@ -629,14 +623,14 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         })
         .collect();
     out.series.push(Series {
-        name: "weight_trend".into(),
+        name: names::WEIGHT_TREND.into(),
         unit: "kg".into(),
         step: "daily".into(),
         label: "Weight trend".into(),
         points: trend_points,
     });
     out.series.push(Series {
-        name: "weight_slope".into(),
+        name: names::WEIGHT_SLOPE.into(),
         unit: "kg/d".into(),
         step: "daily".into(),
         label: "Weight change per day".into(),
@@ -660,7 +654,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         .collect();
     out.series.push(weigh_in_series(data, to, &skipped_dates));
     out.series.push(Series {
-        name: "weight_slope_28d".into(),
+        name: names::WEIGHT_SLOPE_28D.into(),
         unit: "kg/d".into(),
         step: "daily".into(),
         label: "Mean weight change per day over the 28 days ending each day (fewer at the start)"
@@ -691,29 +685,27 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     let rows = periods_now
         .iter()
         .filter_map(|p| {
-            let code = p.kind.table_code()?;
-            let p = *p;
-            Some(vec![
-                Cell::Text(code.into()),
-                Cell::Text(iso(add_days(first, p.start))),
-                Cell::Text(iso(add_days(first, p.end))),
-                Cell::Number((p.end - p.start + 1) as f64),
-                num(p.slope * 7.0),
-                num(p.lower * 7.0),
-                num(p.upper * 7.0),
-                num(sm.mean[p.start][0]),
-                num(sm.mean[p.end][0]),
-                num(p.confidence),
-            ])
+            Some(PeriodRow {
+                kind: period_kind(p.kind)?,
+                start: add_days(first, p.start),
+                end: add_days(first, p.end),
+                days: Some((p.end - p.start + 1) as f64),
+                slope_kg_per_week: finite(p.slope * 7.0),
+                slope_lower_kg_per_week: finite(p.lower * 7.0),
+                slope_upper_kg_per_week: finite(p.upper * 7.0),
+                weight_start_kg: finite(sm.mean[p.start][0]),
+                weight_end_kg: finite(sm.mean[p.end][0]),
+                confidence: finite(p.confidence),
+            })
         })
-        .collect();
-    out.tables.push(periods_table(rows));
+        .collect::<Vec<_>>();
+    out.tables.push(periods_table(&rows));
     out.tables.push(offsets_table(&offsets));
 
     // Scalars.
     let cur = sm.mean[last_idx][0];
     out.push_interval(
-        "current_weight_kg",
+        names::CURRENT_WEIGHT_KG,
         Some(cur),
         Some(cur - band(last_idx, 0)),
         Some(cur + band(last_idx, 0)),
@@ -739,7 +731,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     });
     let w_slope = window.filter(|w| w.slope.is_finite());
     out.push_interval(
-        "slope_kg_per_week",
+        names::SLOPE_KG_PER_WEEK,
         w_slope.map(|w| w.slope * 7.0),
         w_slope.map(|w| w.lower * 7.0),
         w_slope.map(|w| w.upper * 7.0),
@@ -761,7 +753,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         })
         .flatten();
     out.push_interval(
-        "theil_sen_slope_kg_per_week",
+        names::THEIL_SEN_SLOPE_KG_PER_WEEK,
         ts.map(|r| r.slope * 7.0),
         ts.map(|r| r.lower * 7.0),
         ts.map(|r| r.upper * 7.0),
@@ -769,58 +761,63 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         "Theil–Sen slope, last weeks",
     );
     out.push_scalar(
-        "noise_sd_kg",
+        names::NOISE_SD_KG,
         Some(fit.params.sigma2_eps.sqrt()),
         "kg",
         "Scatter of weigh-ins around the trend",
     );
     out.push_scalar(
-        "weigh_ins_used",
+        names::WEIGH_INS_USED,
         Some((n_weigh_ins - outliers) as f64),
         "",
         "Weigh-ins used",
     );
     out.push_scalar(
-        "outliers_ignored",
+        names::OUTLIERS_IGNORED,
         Some(outliers as f64),
         "",
         "Weigh-ins ignored as outliers",
     );
     out.push_scalar(
-        "days_since_last_weigh_in",
+        names::DAYS_SINCE_LAST_WEIGH_IN,
         days_since,
         "d",
         "Days since the last weigh-in",
     );
 
-    let mut status = window.map_or("insufficient_data", |w| status_code(&w, e + 1 >= l));
+    let mut status = window.map_or(Status::InsufficientData, |w| status_code(&w, e + 1 >= l));
     // A plateau found on the whole trajectory that is still going at the last weigh-in is the
     // current status unless the last window shows a clear loss or rise.
     let current_plateau = periods_now
         .iter()
         .rev()
         .find(|p| p.kind == WindowKind::Plateau && p.end + 3 >= last_idx);
-    if current_plateau.is_some() && matches!(status, "stable" | "unclear" | "insufficient_data") {
-        status = "plateau";
+    if current_plateau.is_some()
+        && matches!(
+            status,
+            Status::Stable | Status::Unclear | Status::InsufficientData
+        )
+    {
+        status = Status::Plateau;
     }
-    out.push_text("status", status, status_label(status));
+    out.push_text(names::STATUS, status.as_str(), status.label());
     out.push_scalar(
-        "plateau_confidence",
+        names::PLATEAU_CONFIDENCE,
         current_plateau.map(|p| p.confidence),
         "",
         "Probability that the current plateau's mean slope lies inside the plateau band",
     );
     out.push_text(
-        "plateau_onset",
+        names::PLATEAU_ONSET,
         &current_plateau.map_or(String::new(), |p| iso(add_days(first, p.start))),
         "Day the trend entered the plateau band (current plateau)",
     );
 
     // Regain by level: the trend now against its lowest point so far.
     let regain = regain_by_level(&sm, last_idx, inflation, &settings.plateau);
-    let slope_regain = status == "regaining" && regain.prior_loss_ok;
+    let slope_regain = status == Status::Regaining && regain.prior_loss_ok;
     out.push_interval(
-        "regain_kg",
+        names::REGAIN_KG,
         Some(regain.rise),
         Some(regain.rise - Z_95 * regain.sd),
         Some(regain.rise + Z_95 * regain.sd),
@@ -828,30 +825,21 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         "Trend weight now minus its lowest point so far",
     );
     out.push_scalar(
-        "regain_confidence",
+        names::REGAIN_CONFIDENCE,
         Some(if slope_regain { regain.confidence.max(0.95) } else { regain.confidence }),
         "",
         "Probability that the trend has risen by more than 1 % of baseline weight from its lowest point",
     );
     let verdict = if !reaches_period_end {
-        "insufficient_data"
+        RegainVerdict::InsufficientData
     } else if !regain.prior_loss_ok {
-        "no_prior_loss"
+        RegainVerdict::NoPriorLoss
     } else if slope_regain || regain.confidence >= REGAIN_CONFIDENCE {
-        "regaining"
+        RegainVerdict::Regaining
     } else {
-        "not_regaining"
+        RegainVerdict::NotRegaining
     };
-    out.push_text(
-        "regain_verdict",
-        verdict,
-        match verdict {
-            "regaining" => "Weight has come back up from its lowest point",
-            "not_regaining" => "No clear regain from the lowest point",
-            "no_prior_loss" => "No loss of at least the set share of baseline yet",
-            _ => "Not enough recent weigh-ins to tell",
-        },
-    );
+    out.push_text(names::REGAIN_VERDICT, verdict.as_str(), verdict.label());
     out
 }
 
@@ -962,21 +950,21 @@ fn correlated_scatter_inflation(sm: &llt::SmoothedRun) -> f64 {
 /// shorter than `plateau_window_days` (early in a program) can only report a clear loss or
 /// rise; a plateau or steady weight needs a full window. A clear rise is `regaining` whether or
 /// not a loss came first (the `periods` table keeps `regain` for rises after a loss).
-fn status_code(w: &plateau::WindowVerdict, full_window: bool) -> &'static str {
+fn status_code(w: &plateau::WindowVerdict, full_window: bool) -> Status {
     match w.kind {
-        WindowKind::InsufficientData => "insufficient_data",
-        WindowKind::Loss => "losing",
-        WindowKind::Regain | WindowKind::Gain => "regaining",
-        _ if !full_window => "insufficient_data",
-        WindowKind::Plateau => "plateau",
-        WindowKind::Stable => "stable",
+        WindowKind::InsufficientData => Status::InsufficientData,
+        WindowKind::Loss => Status::Losing,
+        WindowKind::Regain | WindowKind::Gain => Status::Regaining,
+        _ if !full_window => Status::InsufficientData,
+        WindowKind::Plateau => Status::Plateau,
+        WindowKind::Stable => Status::Stable,
         WindowKind::Undecided => {
             if w.slope < -w.delta {
-                "losing"
+                Status::Losing
             } else if w.slope > w.delta {
-                "regaining"
+                Status::Regaining
             } else {
-                "unclear"
+                Status::Unclear
             }
         }
     }
@@ -984,7 +972,7 @@ fn status_code(w: &plateau::WindowVerdict, full_window: bool) -> &'static str {
 
 fn weigh_in_series(data: &ParticipantData, to: NaiveDate, skipped: &[NaiveDate]) -> Series {
     Series {
-        name: "weigh_ins".into(),
+        name: names::WEIGH_INS.into(),
         unit: "kg".into(),
         step: "irregular".into(),
         label: "Weigh-ins".into(),
@@ -1005,7 +993,7 @@ fn weigh_in_series(data: &ParticipantData, to: NaiveDate, skipped: &[NaiveDate])
 
 fn push_missing_scalars(out: &mut ModuleOutput, n: usize, days_since: Option<f64>) {
     out.push_interval(
-        "current_weight_kg",
+        names::CURRENT_WEIGHT_KG,
         None,
         None,
         None,
@@ -1013,7 +1001,7 @@ fn push_missing_scalars(out: &mut ModuleOutput, n: usize, days_since: Option<f64
         "Current trend weight",
     );
     out.push_interval(
-        "slope_kg_per_week",
+        names::SLOPE_KG_PER_WEEK,
         None,
         None,
         None,
@@ -1021,7 +1009,7 @@ fn push_missing_scalars(out: &mut ModuleOutput, n: usize, days_since: Option<f64
         "Trend slope, last weeks",
     );
     out.push_interval(
-        "theil_sen_slope_kg_per_week",
+        names::THEIL_SEN_SLOPE_KG_PER_WEEK,
         None,
         None,
         None,
@@ -1029,20 +1017,20 @@ fn push_missing_scalars(out: &mut ModuleOutput, n: usize, days_since: Option<f64
         "Theil–Sen slope, last weeks",
     );
     out.push_scalar(
-        "noise_sd_kg",
+        names::NOISE_SD_KG,
         None,
         "kg",
         "Scatter of weigh-ins around the trend",
     );
-    out.push_scalar("weigh_ins_used", Some(n as f64), "", "Weigh-ins used");
+    out.push_scalar(names::WEIGH_INS_USED, Some(n as f64), "", "Weigh-ins used");
     out.push_scalar(
-        "outliers_ignored",
+        names::OUTLIERS_IGNORED,
         Some(0.0),
         "",
         "Weigh-ins ignored as outliers",
     );
     out.push_scalar(
-        "days_since_last_weigh_in",
+        names::DAYS_SINCE_LAST_WEIGH_IN,
         days_since,
         "d",
         "Days since the last weigh-in",
@@ -1072,15 +1060,15 @@ mod tests {
         // the slope to lie in the band (REFERENCE §7.3, equivalence-style test), so no
         // plateau and no steady-weight verdict.
         let w = verdict(WindowKind::Undecided, -0.01, -0.05, 0.03);
-        assert_eq!(status_code(&w, true), "unclear");
+        assert_eq!(status_code(&w, true), Status::Unclear);
         // Point estimate beyond the band: the direction is clear enough to describe.
         let w = verdict(WindowKind::Undecided, -0.04, -0.06, -0.02);
-        assert_eq!(status_code(&w, true), "losing");
+        assert_eq!(status_code(&w, true), Status::Losing);
         let w = verdict(WindowKind::Undecided, 0.04, 0.02, 0.06);
-        assert_eq!(status_code(&w, true), "regaining");
+        assert_eq!(status_code(&w, true), Status::Regaining);
         // A window inside the band keeps its verdict; a short window cannot call it.
         let w = verdict(WindowKind::Plateau, -0.01, -0.02, 0.0);
-        assert_eq!(status_code(&w, true), "plateau");
-        assert_eq!(status_code(&w, false), "insufficient_data");
+        assert_eq!(status_code(&w, true), Status::Plateau);
+        assert_eq!(status_code(&w, false), Status::InsufficientData);
     }
 }

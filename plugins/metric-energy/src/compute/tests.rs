@@ -9,6 +9,7 @@ use cohortpress_metric_api::{
     ActivityEntry, IntakeDay, MetricModule, Period, Profile, ProgramInfo, Targets, UnitSystem,
     WeighIn,
 };
+use cohortpress_metric_trend::view::PeriodRow;
 
 fn d(s: &str) -> NaiveDate {
     NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
@@ -88,7 +89,6 @@ fn trend_output(
     slope_hw: f64,
     periods: &[(&str, NaiveDate, NaiveDate, f64, f64)],
 ) -> ModuleOutput {
-    let mut out = ModuleOutput::default();
     let level = weights
         .iter()
         .enumerate()
@@ -113,51 +113,26 @@ fn trend_output(
             }
         })
         .collect();
-    for (name, unit, points) in [
-        ("weight_trend", "kg", level),
-        ("weight_slope", "kg/d", slope),
-    ] {
-        out.series.push(Series {
-            name: name.into(),
-            unit: unit.into(),
-            step: "daily".into(),
-            label: name.into(),
-            points,
-        });
-    }
-    let names = [
-        "kind",
-        "start",
-        "end",
-        "days",
-        "slope_kg_per_week",
-        "slope_lower_kg_per_week",
-        "slope_upper_kg_per_week",
-        "weight_start_kg",
-        "weight_end_kg",
-    ];
-    out.tables.push(Table {
-        name: "periods".into(),
-        label: "periods".into(),
-        columns: names.iter().map(|n| Column::new(n, "", n)).collect(),
-        rows: periods
-            .iter()
-            .map(|(k, s, e, sl, ws)| {
-                vec![
-                    text(*k),
-                    text(s.to_string()),
-                    text(e.to_string()),
-                    Cell::Number(days_incl(*s, *e) as f64),
-                    Cell::Number(*sl),
-                    Cell::Number(sl - 0.1),
-                    Cell::Number(sl + 0.1),
-                    Cell::Number(*ws),
-                    Cell::Empty,
-                ]
-            })
-            .collect(),
-    });
-    out
+    // Built through the trend's own view, so it has every output the real module writes.
+    let mut view = TrendView::default();
+    view.weight_trend.points = level;
+    view.weight_slope.points = slope;
+    view.periods = periods
+        .iter()
+        .map(|(k, s, e, sl, ws)| PeriodRow {
+            kind: k.parse().unwrap(),
+            start: *s,
+            end: *e,
+            days: Some(days_incl(*s, *e) as f64),
+            slope_kg_per_week: Some(*sl),
+            slope_lower_kg_per_week: Some(sl - 0.1),
+            slope_upper_kg_per_week: Some(sl + 0.1),
+            weight_start_kg: Some(*ws),
+            weight_end_kg: None,
+            confidence: None,
+        })
+        .collect();
+    view.to_output()
 }
 
 fn cell_num(t: &Table, row: usize, col: &str) -> Option<f64> {
