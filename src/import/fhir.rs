@@ -18,6 +18,16 @@
 //! - 59261-8 Hemoglobin A1c/Hemoglobin.total in Blood by IFCC protocol (mmol/mol) — from a
 //!   LOINC code listing (third-party), marked here as not confirmed in HL7 material.
 //!
+//! Weigh-in source (the `source` column of `weights.csv`: home scale, clinic, …) is read from
+//! `Observation.method`, the FHIR R4 element for "the mechanism used to perform the
+//! observation" (CodeableConcept; example binding to the Observation Methods value set, so a
+//! local code or plain text is allowed; hl7.org/fhir/R4/observation-definitions.html): its
+//! `text`, else the first coding's `display`, else that coding's `code`. Commas, quotes and
+//! line breaks become `-`, and at most 64 characters are kept. Without a method the column is
+//! left empty (a weigh-in of unstated source, which the trend treats like the home scale), so
+//! a program exported with `method.text` = its `source` and imported again gives the same
+//! metrics, including the offsets the trend estimates for clinic weigh-ins.
+//!
 //! Units (UCUM): `kg`, `g`, `[lb_av]`, `cm`, `m`, `[in_i]`, `%`, `mmol/mol`, `mg/dL`, `mmol/L`,
 //! `mm[Hg]`.
 //!
@@ -63,8 +73,8 @@ pub struct PatientData {
     pub sex: Option<String>,
     /// Birth date.
     pub birth_date: Option<NaiveDate>,
-    /// Weigh-ins: (date, time HH:MM, value, `kg` | `lb`).
-    pub weights: Vec<(NaiveDate, Option<String>, f64, &'static str)>,
+    /// Weigh-ins: (date, time HH:MM, value, `kg` | `lb`, source from `Observation.method`).
+    pub weights: Vec<(NaiveDate, Option<String>, f64, &'static str, Option<String>)>,
     /// Heights: (date, value, `cm` | `in`).
     pub heights: Vec<(NaiveDate, f64, &'static str)>,
     /// Lab rows: (date, test, value, unit as our labs.csv writes it).
@@ -104,6 +114,29 @@ fn effective(obs: &Value) -> Option<(NaiveDate, Option<String>)> {
     let opts = crate::participant::table::CsvOptions::default();
     let w = crate::participant::table::parse_when(s, &opts)?;
     Some((w.date, w.time.map(|t| t.format("%H:%M").to_string())))
+}
+
+/// The weigh-in source an Observation states in `method` (see the module documentation).
+fn method(obs: &Value) -> Option<String> {
+    let m = &obs["method"];
+    let coding = &m["coding"][0];
+    let raw = m["text"]
+        .as_str()
+        .or_else(|| coding["display"].as_str())
+        .or_else(|| coding["code"].as_str())?
+        .trim();
+    let clean: String = raw
+        .chars()
+        .map(|c| {
+            if matches!(c, ',' | '"' | '\n' | '\r') || c.is_control() {
+                '-'
+            } else {
+                c
+            }
+        })
+        .take(64)
+        .collect();
+    (!clean.is_empty()).then_some(clean)
 }
 
 /// `(value, UCUM code)` of a Quantity.
@@ -207,15 +240,22 @@ impl Imported {
             ));
             this.skipped += 1;
         };
+        let source = method(obs);
         match code {
             BODY_WEIGHT => match q {
-                Some((v, "kg")) => self.patient(&patient).weights.push((date, time, v, "kg")),
+                Some((v, "kg")) => self
+                    .patient(&patient)
+                    .weights
+                    .push((date, time, v, "kg", source)),
                 Some((v, "g")) => {
                     self.patient(&patient)
                         .weights
-                        .push((date, time, v / 1000.0, "kg"))
+                        .push((date, time, v / 1000.0, "kg", source))
                 }
-                Some((v, "[lb_av]")) => self.patient(&patient).weights.push((date, time, v, "lb")),
+                Some((v, "[lb_av]")) => self
+                    .patient(&patient)
+                    .weights
+                    .push((date, time, v, "lb", source)),
                 Some((_, u)) => return bad_unit(self, u),
                 None => return bad_unit(self, "(none)"),
             },
@@ -425,8 +465,14 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
         let mut w = p.weights.clone();
         w.sort_by(|a, b| (a.0, &a.1).cmp(&(b.0, &b.1)));
         let mut t = String::from("date,time,weight,unit,source\n");
-        for (d, time, v, u) in w {
-            writeln!(t, "{d},{},{v},{u},fhir", time.unwrap_or_default()).expect("string");
+        for (d, time, v, u, source) in w {
+            writeln!(
+                t,
+                "{d},{},{v},{u},{}",
+                time.unwrap_or_default(),
+                source.unwrap_or_default()
+            )
+            .expect("string");
         }
         files.push(("weights.csv", t));
     }
@@ -580,6 +626,11 @@ mod tests {
             {"code": {"coding": [{"system": LOINC, "code": SYSTOLIC}]}, "valueQuantity": ucum(128.0, "mm[Hg]")},
             {"code": {"coding": [{"system": LOINC, "code": DIASTOLIC}]}, "valueQuantity": ucum(82.0, "mm[Hg]")}
         ]);
+        // The second weigh-in states its setting in `method` (a local code with a display whose
+        // comma must not split the CSV row).
+        let mut w2 = obs("w2", BODY_WEIGHT, "2027-03-08", ucum(83.1, "kg"));
+        w2["resource"]["method"] = json!({"coding": [{"system": "urn:example:weigh-in-setting",
+            "code": "clinic", "display": "clinic, clothed"}]});
         let mut wrong = obs("w-err", BODY_WEIGHT, "2027-03-03", ucum(999.0, "kg"));
         wrong["resource"]["status"] = json!("entered-in-error");
         json!({
@@ -589,7 +640,7 @@ mod tests {
                  "resource": {"resourceType": "Patient", "id": "7c1b2f7e", "gender": "female",
                               "birthDate": "1980-05-17", "name": [{"family": "Example"}]}},
                 obs("w1", BODY_WEIGHT, "2027-03-01T07:12:00+01:00", ucum(185.0, "[lb_av]")),
-                obs("w2", BODY_WEIGHT, "2027-03-08", ucum(83.1, "kg")),
+                w2,
                 obs("h1", BODY_HEIGHT, "2027-03-01", ucum(170.2, "cm")),
                 bp,
                 obs("a1", HBA1C, "2027-03-02", ucum(5.9, "%")),
@@ -623,7 +674,7 @@ mod tests {
         assert!(!profile.contains("Example"), "names are never copied");
         assert_eq!(
             get("weights.csv"),
-            "date,time,weight,unit,source\n2027-03-01,07:12,185,lb,fhir\n2027-03-08,,83.1,kg,fhir\n"
+            "date,time,weight,unit,source\n2027-03-01,07:12,185,lb,\n2027-03-08,,83.1,kg,clinic- clothed\n"
         );
         assert_eq!(
             get("labs.csv"),

@@ -1,6 +1,8 @@
 //! The FHIR importer round trip: a program's weigh-ins, heights and labs exported as a FHIR R4
 //! Bundle (written here from the specification's structure), imported with
-//! `cohortpress import fhir`, and run: the metrics are the same as from the original files.
+//! `cohortpress import fhir`, and run: the metrics are the same as from the original files,
+//! including what depends on the weigh-in source (clinic weigh-ins, carried as
+//! `Observation.method`).
 
 use crate::harness::ProgramTest;
 use chrono::NaiveDate;
@@ -39,11 +41,19 @@ fn export(report: &cohortpress::check::CheckReport) -> (Value, String) {
             "resourceType": "Patient", "id": fid, "gender": sex,
             "birthDate": d.profile.birth_date.unwrap().to_string()}}));
         let mut k = 0;
-        let mut obs = |code: &str, when: String, value: Value, components: Option<Value>| {
+        let mut obs = |code: &str,
+                       when: String,
+                       value: Value,
+                       components: Option<Value>,
+                       method: Option<&str>| {
             k += 1;
             let mut o = json!({"resourceType": "Observation", "id": format!("{fid}-{k}"),
                 "status": "final", "code": {"coding": [{"system": LOINC, "code": code}]},
                 "subject": {"reference": format!("Patient/{fid}")}, "effectiveDateTime": when});
+            // The weigh-in source travels as `Observation.method` (its text).
+            if let Some(m) = method {
+                o["method"] = json!({"text": m});
+            }
             if let Some(c) = components {
                 o["component"] = c;
             } else {
@@ -57,13 +67,20 @@ fn export(report: &cohortpress::check::CheckReport) -> (Value, String) {
             d.profile.enrolled.to_string(),
             q(d.profile.height.cm(), "cm"),
             None,
+            None,
         );
         for w in &d.weights {
             let when = match &w.time {
                 Some(t) => format!("{}T{t}:00-05:00", w.date),
                 None => w.date.to_string(),
             };
-            obs(BODY_WEIGHT, when, q(w.weight.kg(), "kg"), None);
+            obs(
+                BODY_WEIGHT,
+                when,
+                q(w.weight.kg(), "kg"),
+                None,
+                w.source.as_deref(),
+            );
         }
         for l in &d.labs {
             let u = ucum(&l.unit_as_written);
@@ -76,7 +93,13 @@ fn export(report: &cohortpress::check::CheckReport) -> (Value, String) {
                 ("DiastolicBp", _) => DIASTOLIC,
                 (t, _) => panic!("{t}"),
             };
-            obs(code, l.date.to_string(), q(l.value_as_written, u), None);
+            obs(
+                code,
+                l.date.to_string(),
+                q(l.value_as_written, u),
+                None,
+                None,
+            );
         }
     }
     (
@@ -181,4 +204,12 @@ fn a_program_exported_as_fhir_and_imported_gives_the_same_metrics() {
     assert_eq!(metrics[0].0, metrics[1].0, "participants.csv differs");
     assert_eq!(metrics[0].1, metrics[1].1, "weekly.csv differs");
     assert_eq!(metrics[0].2, metrics[1].2, "tables.csv differs");
+    // The demo program's clinic weigh-ins got an offset, so the source did travel.
+    assert!(
+        metrics[1]
+            .2
+            .lines()
+            .any(|l| l.contains("source_offsets") && l.contains("clinic")),
+        "no clinic offset in tables.csv"
+    );
 }

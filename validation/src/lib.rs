@@ -97,11 +97,52 @@ pub fn participant_data(p: &Person, targets: &Targets) -> ParticipantData {
     }
 }
 
-/// Runs the `trend` then the `energy` module for the 28-day period ending on day `end`.
+/// Runs the `trend` then the `energy` module (default settings) for the 28-day period ending on
+/// day `end`.
 pub fn run_modules(
     data: &ParticipantData,
     days: usize,
     end: usize,
+) -> (ModuleOutput, ModuleOutput) {
+    run_modules_with(data, days, end, &serde_json::Value::Null)
+}
+
+/// What an oracle run tells the `energy` module of the simulated person's truth, through its
+/// ordinary settings (a program could set them from measurements: activity by accelerometry or
+/// doubly labelled water, reporting by a recovery biomarker). It shows how much of the error
+/// comes from what the records cannot identify.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Oracle {
+    /// Nothing: default settings.
+    None,
+    /// The person's true activity level (`base_pal`, `pal_sd` 0.01); resting energy still from
+    /// the equation.
+    Pal,
+    /// The person's true under-reporting share (prior centre, SD 0.5 points).
+    Underreporting,
+}
+
+impl Oracle {
+    /// The `energy` settings for person `p`.
+    pub fn energy_settings(self, p: &Person) -> serde_json::Value {
+        match self {
+            Oracle::None => serde_json::Value::Null,
+            Oracle::Pal => serde_json::json!({"base_pal": p.pal, "pal_sd": 0.01}),
+            Oracle::Underreporting => serde_json::json!({
+                "underreporting_prior_percent": 100.0 * p.underreport,
+                "underreporting_sd_percent": 0.5,
+            }),
+        }
+    }
+}
+
+/// [`run_modules`] with `energy` settings `energy_settings` (JSON object, or null for the
+/// defaults).
+pub fn run_modules_with(
+    data: &ParticipantData,
+    days: usize,
+    end: usize,
+    energy_settings: &serde_json::Value,
 ) -> (ModuleOutput, ModuleOutput) {
     let program = ProgramInfo {
         id: "validation".into(),
@@ -128,8 +169,8 @@ pub fn run_modules(
     let trend = TrendModule.compute(&ctx, data).expect("trend computes");
     ctx.settings = EnergyModule
         .spec()
-        .resolve_settings(&serde_json::Value::Null)
-        .expect("defaults resolve");
+        .resolve_settings(energy_settings)
+        .expect("settings resolve");
     ctx.earlier.insert(TrendView::MODULE.into(), trend.clone());
     let energy = EnergyModule.compute(&ctx, data).expect("energy computes");
     (trend, energy)
@@ -218,10 +259,16 @@ pub struct Outcome {
 
 /// Simulates and scores person `index` of the cohort with seed `seed` over `days` days.
 pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
+    run_person_with(seed, index, days, Oracle::None)
+}
+
+/// [`run_person`] with what `oracle` tells the `energy` module.
+pub fn run_person_with(seed: u64, index: usize, days: usize, oracle: Oracle) -> Outcome {
     let p = truth::simulate(seed, index, days);
     let data = participant_data(&p, &Targets::default());
     let end = days - 1;
-    let (trend, energy) = run_modules(&data, days, end);
+    let settings = oracle.energy_settings(&p);
+    let (trend, energy) = run_modules_with(&data, days, end, &settings);
     let trend = TrendView::from_output(&trend).expect("the trend output reads as its view");
     let energy = EnergyView::from_output(&energy).expect("the energy output reads as its view");
     let last_obs = p.obs.iter().map(|o| o.day).max();
@@ -314,7 +361,7 @@ pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
 
     // Forecast from mid-program.
     let mid = days / 2 - 1;
-    let (_, energy_mid) = run_modules(&data, days, mid);
+    let (_, energy_mid) = run_modules_with(&data, days, mid, &settings);
     let energy_mid =
         EnergyView::from_output(&energy_mid).expect("the energy output reads as its view");
     let forecast = Some(&energy_mid.forecast_weight).and_then(|s| {
@@ -340,6 +387,17 @@ pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
 
 /// Runs a whole cohort (on up to `threads` threads; the result does not depend on them).
 pub fn run_cohort(seed: u64, participants: usize, days: usize, threads: usize) -> Vec<Outcome> {
+    run_cohort_with(seed, participants, days, threads, Oracle::None)
+}
+
+/// [`run_cohort`] with what `oracle` tells the `energy` module.
+pub fn run_cohort_with(
+    seed: u64,
+    participants: usize,
+    days: usize,
+    threads: usize,
+    oracle: Oracle,
+) -> Vec<Outcome> {
     assert!(days >= 120, "the harness needs at least 120 days");
     let threads = threads.clamp(1, 64);
     let mut out: Vec<Option<Outcome>> = vec![None; participants];
@@ -351,7 +409,7 @@ pub fn run_cohort(seed: u64, participants: usize, days: usize, threads: usize) -
             let base = k * participants.div_ceil(threads).max(1);
             s.spawn(move || {
                 for (j, slot) in chunk.iter_mut().enumerate() {
-                    *slot = Some(run_person(seed, base + j, days));
+                    *slot = Some(run_person_with(seed, base + j, days, oracle));
                 }
             });
         }

@@ -5,7 +5,9 @@
 //!
 //! The floors sit a little below what these seeds measure (VALIDATION.md has the full table),
 //! so ordinary refactoring passes and a real regression does not. Goals not yet met (plateau
-//! onset, under-reporting, expenditure, plateau cause) are guarded at their current level.
+//! onset, under-reporting, expenditure) are guarded at their
+//! current level with a margin (under-reporting 5.9 / 6.0 points → 7; expenditure 180 / 167
+//! kcal/d → 200; trend bias 0.1 / 0.0 kg → 0.25).
 
 use cohortpress_validation::{Figure, Summary, run_cohort};
 
@@ -29,7 +31,7 @@ fn check(seed: u64) {
         ("regain specificity", 0.95, true, s.regain_specificity),
         // Measured 48 % (seed 20261202) and 51 % (seed 7) with plateaus judged on tissue.
         ("plateau onset within ±14 d", 0.44, true, s.plateau_onset_14),
-        ("plateau cause correct", 0.72, true, s.cause_correct),
+        ("plateau cause correct", 0.80, true, s.cause_correct),
         (
             "plateaus reported without one",
             0.16,
@@ -37,15 +39,10 @@ fn check(seed: u64) {
             s.plateau_false,
         ),
         ("plateau cause decided wrongly", 0.10, false, s.cause_wrong),
-        (
-            "under-reporting MAE, points",
-            10.0,
-            false,
-            s.underreport_mae,
-        ),
-        ("expenditure MAE, kcal/d", 220.0, false, s.tdee_mae),
+        ("under-reporting MAE, points", 7.0, false, s.underreport_mae),
+        ("expenditure MAE, kcal/d", 200.0, false, s.tdee_mae),
         ("trend weight MAE, kg", 0.4, false, s.trend_mae),
-        ("trend weight bias, kg", 0.3, false, s.trend_bias),
+        ("trend weight bias, kg", 0.25, false, s.trend_bias),
     ];
     for (what, floor, at_least, f) in floors {
         let x = v(f, what);

@@ -25,6 +25,7 @@
 
 use crate::dynamics::{BETA_AT, BETA_TEF, HallModel, LinearisedModel};
 use crate::equations::{RestingEquation, activity_kcal_net, jackson_2002_body_fat};
+use baseline::{Baseline, baseline_requirement};
 use chrono::Datelike as _;
 use chrono::{Days, NaiveDate};
 use cohortpress_metric_api::view::ModuleView;
@@ -48,22 +49,21 @@ const MAX_WALK_MIN: f64 = 120.0;
 /// Half-width of the plateau band as a fraction of body weight per week (REFERENCE §7.3,
 /// program configuration rather than a literature constant).
 const PLATEAU_BAND_FRACTION_PER_WEEK: f64 = 0.0025;
-/// SD of a person's physical activity level around `base_pal`: FAO/WHO/UNU 2004 (*Human energy
-/// requirements*) puts sedentary-to-light lifestyles at PAL 1.40–1.69 and active ones at
-/// 1.70–1.99, so ±2 SD = ±0.3 spans a category either side (program choice).
-const PAL_SD: f64 = 0.15;
+/// Default SD of a person's physical activity level around `base_pal` (setting `pal_sd`):
+/// FAO/WHO/UNU 2004 (*Human energy requirements*) puts sedentary-to-light lifestyles at PAL
+/// 1.40–1.69 and active ones at 1.70–1.99, so ±2 SD = ±0.3 spans a category either side
+/// (program choice).
+pub(crate) const PAL_SD: f64 = 0.15;
 /// Relative SD of measured resting energy around the equation's prediction: Mifflin–St Jeor
 /// predicts within ±10 % for about 80 % of adults (Frankenfield et al. 2005, J Am Diet Assoc
 /// 105:775; from memory), i.e. SD ≈ 8 %.
 const RMR_REL_SD: f64 = 0.08;
-/// Prior share of intake left out of food logs, and its SD: self-reported intake falls short of
-/// doubly-labelled-water expenditure by 10–45 % in most studies (Trabulsi & Schoeller 2001, Am J
-/// Physiol Endocrinol Metab 281:E891; from memory), centre 20 %, SD 12 points.
-const UNDERREPORT_PRIOR: f64 = 0.20;
-const UNDERREPORT_SD: f64 = 0.12;
-/// Day-to-day coefficient of variation of one logged day (sampling error of a mean of logged
-/// days; common practice).
-const LOG_DAY_CV: f64 = 0.30;
+/// Default prior share of intake left out of food logs, and its SD (settings
+/// `underreporting_prior_percent`, `underreporting_sd_percent`): self-reported intake falls
+/// short of doubly-labelled-water expenditure by 10–45 % in most studies (Trabulsi & Schoeller
+/// 2001, Am J Physiol Endocrinol Metab 281:E891; from memory), centre 20 %, SD 12 points.
+pub(crate) const UNDERREPORT_PRIOR: f64 = 0.20;
+pub(crate) const UNDERREPORT_SD: f64 = 0.12;
 /// Relative SDs of the linearised model's ρ (energy density of weight change; with body fat
 /// unknown to ±4 points the lean share of a change moves by about ±10 %) and ε (the
 /// expenditure slope, through the unknown activity level); program choice.
@@ -83,6 +83,9 @@ const MIN_STEADY_STATE_BMI: f64 = 16.0;
 struct Settings {
     equation: RestingEquation,
     base_pal: f64,
+    pal_sd: f64,
+    underreport_prior: f64,
+    underreport_sd: f64,
     window_days: u64,
     target_loss: f64,
     max_safe_loss: f64,
@@ -105,6 +108,13 @@ impl Settings {
         Ok(Settings {
             equation,
             base_pal: ctx.setting_f64("base_pal", 1.6),
+            pal_sd: ctx.setting_f64("pal_sd", PAL_SD).max(0.001),
+            underreport_prior: ctx
+                .setting_f64("underreporting_prior_percent", 100.0 * UNDERREPORT_PRIOR)
+                / 100.0,
+            underreport_sd: (ctx.setting_f64("underreporting_sd_percent", 100.0 * UNDERREPORT_SD)
+                / 100.0)
+                .max(0.001),
             window_days: ctx.setting_f64("window_days", 28.0).round().max(1.0) as u64,
             target_loss: ctx.setting_f64("target_loss_kg_per_week", 0.5),
             max_safe_loss: ctx.setting_f64("max_safe_loss_kg_per_week", 1.0),
@@ -443,7 +453,9 @@ fn text(s: impl Into<String>) -> Cell {
     Cell::Text(s.into())
 }
 
-/// Computes the module's output (see the module docs for every definition).
+/// Computes the module's output (see the module docs for every definition): the person's
+/// baseline ([`start`]), their baseline requirement ([`baseline_requirement`]), the current
+/// energy state ([`current_state`]), the forecast ([`forecast`]) and the tables.
 pub(crate) fn run(
     ctx: &ModuleContext,
     data: &ParticipantData,
@@ -452,7 +464,6 @@ pub(crate) fn run(
     let mut out = ModuleOutput::default();
     let to = ctx.period.to;
     let enrolled = data.profile.enrolled;
-    let period_from = ctx.period.from.max(enrolled);
     // The trend's output, read through its view (an output that does not read is treated as
     // no trend, and fails loudly in debug builds).
     let trend_out = ctx.earlier.get(TrendView::MODULE).and_then(|o| {
@@ -472,15 +483,7 @@ pub(crate) fn run(
              fit of the weigh-ins where there were enough of them.",
         );
     }
-
-    // Baseline.
-    let bw0 = trend.level.values().next().map(|b| b.value).or_else(|| {
-        data.weights
-            .iter()
-            .find(|w| w.date <= to)
-            .map(|w| w.weight.kg())
-    });
-    let Some(bw0) = bw0 else {
+    let Some((mut p, start)) = start(&s, data, trend, to, &mut out) else {
         out.push_flag(
             "insufficient_data",
             FlagSeverity::Info,
@@ -489,9 +492,71 @@ pub(crate) fn run(
         push_empty(&mut out, &s);
         return Ok(out);
     };
+    // The baseline requirement EI₀ is not known: RMR × PAL with both uncertain, then updated by
+    // the food logs and the weight trend together, with under-reporting as a parameter.
+    let withdrew_cut = data.profile.withdrew.map_or(to, |w| w.min(to));
+    let baseline = baseline_requirement(&p, &s, enrolled, withdrew_cut);
+    let pal_post = (baseline.ei0 / start.rmr0).clamp(1.1, 2.5);
+    p.model = HallModel::new(start.bw0, start.fm0, start.rmr0, pal_post);
+    p.lin = LinearisedModel::from_baseline(start.bw0, start.fm0, start.rmr0, pal_post);
+
+    let cur = current_state(ctx, &s, &p, &baseline, trend_out.is_none(), start.bw0);
+    if cur.slope.is_none() && trend_out.is_some() {
+        out.push_flag(
+            "insufficient_data",
+            FlagSeverity::Info,
+            format!(
+                "The weight trend does not cover enough of the last {} days, so the intake \
+                 implied by the weight trend, the forecast and the options could not be computed.",
+                s.window_days
+            ),
+        );
+    }
+    push_current(&mut out, &p, &cur);
+    let fc = forecast(ctx, &s, &p, &cur, withdrew_cut);
+    push_forecast(&mut out, &p, &start, fc);
+
+    // After a withdrawal there are no habits to estimate: the weekly table stops there.
+    out.tables
+        .push(weekly_table(&p, &s, enrolled, withdrew_cut));
+    out.tables
+        .push(options_table(&p, &s, cur.bw, cur.slope, cur.implied));
+    out.tables.push(plateau_table(&p, &s, enrolled));
+    push_gap_flag(&mut out, &cur);
+    // Logged intakes below the usual floors are flagged by the outcomes module, which owns the
+    // safety flags; this module only refuses to recommend going below them.
+    Ok(out)
+}
+
+/// The person at enrolment: baseline weight, body composition and resting energy.
+struct Start {
+    bw0: f64,
+    fm0: f64,
+    rmr0: f64,
+    bf0: f64,
+    bf_source: &'static str,
+    bf_label: &'static str,
+}
+
+/// Baseline weight (first trend level, else the first weigh-in up to `to`), body fat (profile or
+/// Jackson et al. 2002), the resting equation (with its fallback flagged) and the body model at
+/// the prior activity level. `None` without any weigh-in.
+fn start<'a>(
+    s: &Settings,
+    data: &'a ParticipantData,
+    trend: Trend,
+    to: NaiveDate,
+    out: &mut ModuleOutput,
+) -> Option<(Person<'a>, Start)> {
+    let bw0 = trend.level.values().next().map(|b| b.value).or_else(|| {
+        data.weights
+            .iter()
+            .find(|w| w.date <= to)
+            .map(|w| w.weight.kg())
+    })?;
     let sex = data.profile.sex;
     let height_cm = data.profile.height.cm();
-    let age0 = data.profile.age_on(enrolled);
+    let age0 = data.profile.age_on(data.profile.enrolled);
     let (bf0, bf_source, bf_label) = match data.profile.body_fat_percent {
         Some(bf) => (bf, "measured", "Measured (from the profile)"),
         None => (
@@ -523,34 +588,77 @@ pub(crate) fn run(
     }
     let lean0 = equation.needs_lean_mass().then_some(bw0 - fm0);
     let rmr0 = equation.resting_energy(sex, bw0, height_cm, age0, lean0);
-    let model = HallModel::new(bw0, fm0, rmr0, s.base_pal);
-    let lin = LinearisedModel::from_baseline(bw0, fm0, rmr0, s.base_pal);
-    let mut p = Person {
+    let person = Person {
         data,
         sex,
         height_cm,
         equation,
-        model,
-        lin,
+        model: HallModel::new(bw0, fm0, rmr0, s.base_pal),
+        lin: LinearisedModel::from_baseline(bw0, fm0, rmr0, s.base_pal),
         trend,
     };
-    // The baseline requirement EI₀ is not known: RMR × PAL with both uncertain, then updated by
-    // the food logs with under-reporting as a parameter.
-    let withdrew_cut = data.profile.withdrew.map_or(to, |w| w.min(to));
-    let baseline = baseline_requirement(&p, enrolled, withdrew_cut);
-    let pal_post = (baseline.ei0 / rmr0).clamp(1.1, 2.5);
-    p.model = HallModel::new(bw0, fm0, rmr0, pal_post);
-    p.lin = LinearisedModel::from_baseline(bw0, fm0, rmr0, pal_post);
-    let var_ei0 = baseline.var;
+    Some((
+        person,
+        Start {
+            bw0,
+            fm0,
+            rmr0,
+            bf0,
+            bf_source,
+            bf_label,
+        },
+    ))
+}
 
-    // Current state.
+/// The energy state over the last `window_days` of the period.
+struct Current {
+    /// Current weight (trend level at the period end, or the fallback fit's end).
+    bw: f64,
+    /// Mean slope over the window, kg/d, with its 95 % band.
+    slope: Option<Band>,
+    /// Net logged activity over the window, kcal/kg/d.
+    met_h_window: f64,
+    rmr: f64,
+    /// Net logged activity over the period, kcal/d.
+    activity: f64,
+    logged: Option<f64>,
+    logged_days: usize,
+    implied: Option<Band>,
+    tdee: f64,
+    underreport: Option<Band>,
+    /// SD of the current energy balance without the baseline requirement (it cancels in
+    /// forecasts), kcal/d.
+    balance_sd: f64,
+}
+
+/// SD of a slope from its 95 % band.
+fn band_sd(b: &Band) -> f64 {
+    match (b.lower, b.upper) {
+        (Some(l), Some(u)) => (u - l).abs() / (2.0 * Z_95),
+        _ => 0.0,
+    }
+}
+
+/// Current weight, window slope, implied intake (with every source of uncertainty), total
+/// expenditure and under-reporting.
+fn current_state(
+    ctx: &ModuleContext,
+    s: &Settings,
+    p: &Person<'_>,
+    baseline: &Baseline,
+    no_trend: bool,
+    bw0: f64,
+) -> Current {
+    let to = ctx.period.to;
+    let enrolled = p.data.profile.enrolled;
+    let period_from = ctx.period.from.max(enrolled);
     let window_from = day_before(to, s.window_days - 1).max(enrolled);
-    let fallback = if trend_out.is_none() {
-        ols_fallback(data, window_from, to)
+    let fallback = if no_trend {
+        ols_fallback(p.data, window_from, to)
     } else {
         None
     };
-    let bw_cur = match &fallback {
+    let bw = match &fallback {
         Some(fit) => fit.level_end,
         None => p.weight_on(to).unwrap_or(bw0),
     };
@@ -559,7 +667,7 @@ pub(crate) fn run(
     // read a decelerating loss as a lower intake).
     let bw_window = match &fallback {
         Some(fit) => fit.level_mean,
-        None => mean_band(&p.trend.level, window_from, to).map_or(bw_cur, |b| b.value),
+        None => mean_band(&p.trend.level, window_from, to).map_or(bw, |b| b.value),
     };
     let slope: Option<Band> = match &fallback {
         Some(fit) => Some(fit.slope),
@@ -570,35 +678,20 @@ pub(crate) fn run(
                     >= days_incl(window_from, to).min(s.window_days as i64) / 2
             }),
     };
-    if slope.is_none() && trend_out.is_some() {
-        out.push_flag(
-            "insufficient_data",
-            FlagSeverity::Info,
-            format!(
-                "The weight trend does not cover enough of the last {} days, so the intake \
-                 implied by the weight trend, the forecast and the options could not be computed.",
-                s.window_days
-            ),
-        );
-    }
-
-    let rmr = p.rmr_at(bw_cur, to);
-    let activity = p.activity_kcal(period_from, to, bw_cur);
+    let rmr = p.rmr_at(bw, to);
+    let activity = p.activity_kcal(period_from, to, bw);
     let (logged_mean, logged_days) = p.logged(period_from, to);
     let logged = logged_mean.filter(|_| logged_days >= MIN_LOGGED_DAYS);
     let met_h_window = p.activity_met_hours(window_from, to);
     // Implied intake over the window with every source of uncertainty: the baseline
     // requirement (after the logs), the slope (its band already carries correlated scatter) and
     // the model's ρ and ε.
-    let slope_sd = |b: &Band| match (b.lower, b.upper) {
-        (Some(l), Some(u)) => (u - l).abs() / (2.0 * Z_95),
-        _ => 0.0,
-    };
-    let implied_sd: Option<f64> =
-        slope.map(|sl| (var_ei0 + p.change_var(bw_window, sl.value, slope_sd(&sl))).sqrt());
+    let balance_sd = slope.map_or(0.0, |sl| {
+        p.change_var(bw_window, sl.value, band_sd(&sl)).sqrt()
+    });
     let implied: Option<Band> = slope.map(|sl| {
         let v = p.implied_intake(bw_window, sl.value, met_h_window);
-        let h = Z_95 * implied_sd.unwrap_or(0.0);
+        let h = Z_95 * (baseline.var + balance_sd * balance_sd).sqrt();
         Band {
             value: v,
             lower: Some((v - h).max(0.0)),
@@ -616,34 +709,58 @@ pub(crate) fn run(
         }
         _ => rmr * p.model.pal + activity,
     };
+    // Under-reporting: the person's own share from every block of logs and trend (the joint
+    // posterior); without such blocks, the share missing from the window's logs.
     let (logged_window, logged_window_days) = p.logged(window_from, to);
-    let underreport = match (implied, logged_window) {
-        (Some(i), Some(l)) if logged_window_days >= MIN_LOGGED_DAYS && i.value > 0.0 => {
+    let underreport = match (baseline.underreport, implied, logged_window) {
+        (Some((m, l, u)), Some(_), _) => Some(Band {
+            value: 100.0 * m,
+            lower: Some(100.0 * l),
+            upper: Some(100.0 * u),
+        }),
+        (None, Some(i), Some(l)) if logged_window_days >= MIN_LOGGED_DAYS && i.value > 0.0 => {
             let pct = |x: f64| 100.0 * (1.0 - l / x.max(1.0));
             Some(Band {
                 value: pct(i.value),
-                lower: i.lower.map(pct),
-                upper: i.upper.map(pct),
+                lower: i.upper.map(pct),
+                upper: i.lower.map(pct),
             })
         }
         _ => None,
     };
+    Current {
+        bw,
+        slope,
+        met_h_window,
+        rmr,
+        activity,
+        logged,
+        logged_days,
+        implied,
+        tdee,
+        underreport,
+        balance_sd,
+    }
+}
 
+/// The current-state scalars.
+fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
+    let implied = cur.implied;
     out.push_scalar(
         "rmr_kcal_per_day",
-        Some(rmr),
+        Some(cur.rmr),
         "kcal/d",
-        &format!("Resting energy ({})", equation.label()),
+        &format!("Resting energy ({})", p.equation.label()),
     );
     out.push_scalar(
         "activity_net_kcal_per_day",
-        Some(activity),
+        Some(cur.activity),
         "kcal/d",
         "Logged activity, net of resting ((MET − 1) × kg × h), added to the resting-based total",
     );
     out.push_scalar(
         "tdee_kcal_per_day",
-        Some(tdee),
+        Some(cur.tdee),
         "kcal/d",
         if implied.is_some() {
             "Total expenditure: implied intake minus the energy stored or released by the weight change"
@@ -655,17 +772,17 @@ pub(crate) fn run(
         "pal_estimate",
         Some(p.model.pal),
         "",
-        "Baseline activity level (TEE/RMR) after combining the prior with the food logs",
+        "Baseline activity level (TEE/RMR) after combining the prior with the food logs and the weight trend",
     );
     out.push_scalar(
         "logged_intake_kcal_per_day",
-        logged,
+        cur.logged,
         "kcal/d",
         "Logged intake, mean of logged days",
     );
     out.push_scalar(
         "logged_days",
-        Some(logged_days as f64),
+        Some(cur.logged_days as f64),
         "d",
         "Days with a food log",
     );
@@ -677,10 +794,6 @@ pub(crate) fn run(
         "kcal/d",
         "Intake implied by the weight trend (Hall & Chow 2011), 95 % interval",
     );
-    let gap = match (implied, logged) {
-        (Some(i), Some(l)) => Some(i.map(|x| x - l)),
-        _ => None,
-    };
     out.push_scalar(
         "implied_intake_lower_kcal_per_day",
         implied.and_then(|b| b.lower),
@@ -693,14 +806,17 @@ pub(crate) fn run(
         "kcal/d",
         "Upper 95 % bound of the implied intake",
     );
+    let ur = cur.underreport;
     out.push_interval(
         "underreporting_percent",
-        underreport.map(|b| b.value),
-        underreport.and_then(|b| b.lower),
-        underreport.and_then(|b| b.upper),
+        ur.map(|b| b.value),
+        ur.and_then(|b| b.lower),
+        ur.and_then(|b| b.upper),
         "%",
-        "Share of the implied intake missing from the food log over the window, 95 % interval",
+        "Share of intake missing from the food logs (the person's own share, from every four \
+         weeks of logs and weight trend together), 95 % interval",
     );
+    let gap = gap(cur);
     out.push_interval(
         "intake_gap_kcal_per_day",
         gap.map(|b| b.value),
@@ -709,7 +825,7 @@ pub(crate) fn run(
         "kcal/d",
         "Implied minus logged intake (positive: more eaten than logged)",
     );
-    let balance = implied.map(|i| i.map(|x| x - tdee));
+    let balance = implied.map(|i| i.map(|x| x - cur.tdee));
     out.push_interval(
         "energy_balance_kcal_per_day",
         balance.map(|b| b.value),
@@ -718,27 +834,54 @@ pub(crate) fn run(
         "kcal/d",
         "Energy balance: implied intake minus expenditure at the current weight",
     );
+}
 
-    // Forecast and steady state.
-    // To the program end, but never shorter than `forecast_min_days`: in a program's last month
-    // a forecast "to the end" would have no horizon at all.
+/// Implied minus logged intake over the period.
+fn gap(cur: &Current) -> Option<Band> {
+    match (cur.implied, cur.logged) {
+        (Some(i), Some(l)) => Some(i.map(|x| x - l)),
+        _ => None,
+    }
+}
+
+/// The forecast trajectory with its band, and the steady state.
+struct Forecast {
+    points: Vec<Point>,
+    end: Option<Band>,
+    /// Steady-state weight and its bounds (each withheld below `MIN_STEADY_STATE_BMI`).
+    steady: Option<(f64, Option<f64>, Option<f64>)>,
+}
+
+/// Forecast to the program end (never shorter than `forecast_min_days`: in a program's last
+/// month a forecast "to the end" would have no horizon at all) and the steady state.
+///
+/// The band holds (a) the current energy balance's uncertainty (slope and model parameters;
+/// the baseline requirement cancels, since the model's expenditure shares it), (b) intake
+/// moving after the last data at `INTAKE_DRIFT_PER_DAY` plus this person's own movement so far
+/// (twice the drift after a withdrawal, when nothing is known of the habits), growing
+/// linearly with time, (c) the uncertainty of the current trend weight and (d) on the upper
+/// edge, half of the current deficit given up by the end of the horizon.
+fn forecast(
+    ctx: &ModuleContext,
+    s: &Settings,
+    p: &Person<'_>,
+    cur: &Current,
+    withdrew_cut: NaiveDate,
+) -> Forecast {
+    let to = ctx.period.to;
+    let enrolled = p.data.profile.enrolled;
     let horizon = (ctx.program.end - to).num_days().max(s.forecast_min_days);
     let run_forecast = |intake: &dyn Fn(usize) -> f64| -> Vec<f64> {
-        let start = p.model.state_at_weight(bw_cur, intake(0));
+        let start = p.model.state_at_weight(cur.bw, intake(0));
         p.model
-            .simulate_from(start, horizon.max(0) as usize, intake, |_| met_h_window)
+            .simulate_from(start, horizon.max(0) as usize, intake, |_| cur.met_h_window)
             .iter()
             .map(|st| p.model.weight(st))
             .collect()
     };
-    // The band holds (a) the current energy balance's uncertainty (slope and model parameters;
-    // the baseline requirement cancels, since the model's expenditure shares it), (b) intake
-    // moving after the last data at INTAKE_DRIFT_PER_DAY plus this person's own movement so far
-    // (twice the drift after a withdrawal, when nothing is known of the habits), growing
-    // linearly with time, and (c) the uncertainty of the current trend weight.
-    let withdrawn = data.profile.withdrew.is_some_and(|w| w <= to);
+    let withdrawn = p.data.profile.withdrew.is_some_and(|w| w <= to);
     let drift_rate = {
-        let own = intake_movement_per_day(&p, enrolled, withdrew_cut, s.window_days);
+        let own = intake_movement_per_day(p, enrolled, withdrew_cut, s.window_days);
         let pop = if withdrawn {
             2.0 * INTAKE_DRIFT_PER_DAY
         } else {
@@ -746,9 +889,6 @@ pub(crate) fn run(
         };
         (pop * pop + own * own).sqrt()
     };
-    let balance_sd = slope.map_or(0.0, |sl| {
-        p.change_var(bw_window, sl.value, slope_sd(&sl)).sqrt()
-    });
     let level_half = p
         .trend
         .level
@@ -756,10 +896,9 @@ pub(crate) fn run(
         .next_back()
         .and_then(|(_, b)| Some((b.upper? - b.lower?).abs() / 2.0))
         .unwrap_or(0.0);
-    let intake_sd_at = |d: usize| (balance_sd.powi(2) + (drift_rate * d as f64).powi(2)).sqrt();
-    let mut forecast_points = vec![];
-    let mut forecast_end: Option<Band> = None;
-    if let (Some(i), true) = (implied, horizon > 0) {
+    let intake_sd_at = |d: usize| (cur.balance_sd.powi(2) + (drift_rate * d as f64).powi(2)).sqrt();
+    let mut points = vec![];
+    if let (Some(i), true) = (cur.implied, horizon > 0) {
         let mid = run_forecast(&|_| i.value);
         let lo_intake = |d: usize| (i.value - Z_95 * intake_sd_at(d)).max(0.0);
         // Adherence fades more often than it grows: the upper edge also gives up half of the
@@ -790,44 +929,55 @@ pub(crate) fn run(
         let hi = with_fast(run_forecast(&hi_intake), &hi_intake);
         for (d, w) in mid.iter().enumerate() {
             let widen = |edge: f64| ((edge - w).powi(2) + level_half.powi(2)).sqrt();
-            forecast_points.push(Point {
+            points.push(Point {
                 date: day_after(to, d as u64),
                 value: *w,
                 lower: Some(w - widen(lo[d])),
                 upper: Some(w + widen(hi[d])),
             });
         }
-        forecast_end = forecast_points.last().map(|pt| Band {
-            value: pt.value,
-            lower: pt.lower,
-            upper: pt.upper,
-        });
     }
-    out.push_interval(
-        "forecast_weight_at_end_kg",
-        forecast_end.map(|b| b.value),
-        forecast_end.and_then(|b| b.lower),
-        forecast_end.and_then(|b| b.upper),
-        "kg",
-        "Forecast weight at the end of the forecast horizon (program end, or forecast_min_days past the period if later), implied intake and activity held (Hall et al. 2011 model)",
-    );
-    let h_m = height_cm / 100.0;
+    let end = points.last().map(|pt| Band {
+        value: pt.value,
+        lower: pt.lower,
+        upper: pt.upper,
+    });
+    let h_m = p.height_cm / 100.0;
     let ss = |x: f64| {
         p.model
-            .steady_state_weight(x, met_h_window)
+            .steady_state_weight(x, cur.met_h_window)
             .filter(|w| w / (h_m * h_m) >= MIN_STEADY_STATE_BMI)
     };
     // The steady state's interval comes from the current energy balance's uncertainty (the
     // baseline requirement cancels), as for the forecast.
-    let steady = implied.and_then(|i| {
+    let steady = cur.implied.and_then(|i| {
         ss(i.value).map(|v| {
             (
                 v,
-                ss(i.value - Z_95 * balance_sd),
-                ss(i.value + Z_95 * balance_sd),
+                ss(i.value - Z_95 * cur.balance_sd),
+                ss(i.value + Z_95 * cur.balance_sd),
             )
         })
     });
+    Forecast {
+        points,
+        end,
+        steady,
+    }
+}
+
+/// The forecast and body-composition outputs.
+fn push_forecast(out: &mut ModuleOutput, p: &Person<'_>, start: &Start, fc: Forecast) {
+    let end = fc.end;
+    out.push_interval(
+        "forecast_weight_at_end_kg",
+        end.map(|b| b.value),
+        end.and_then(|b| b.lower),
+        end.and_then(|b| b.upper),
+        "kg",
+        "Forecast weight at the end of the forecast horizon (program end, or forecast_min_days past the period if later), implied intake and activity held (Hall et al. 2011 model)",
+    );
+    let steady = fc.steady;
     out.push_interval(
         "steady_state_weight_kg",
         steady.map(|x| x.0),
@@ -838,104 +988,42 @@ pub(crate) fn run(
     );
     out.push_scalar(
         "body_fat_percent_baseline",
-        Some(bf0),
+        Some(start.bf0),
         "%",
-        &format!("Baseline body fat: {bf_label}"),
+        &format!("Baseline body fat: {}", start.bf_label),
     );
-    out.push_text("rmr_equation", equation.code(), equation.label());
-    out.push_text("body_fat_source", bf_source, bf_label);
+    out.push_text("rmr_equation", p.equation.code(), p.equation.label());
+    out.push_text("body_fat_source", start.bf_source, start.bf_label);
     out.series.push(Series {
         name: "forecast_weight".into(),
         unit: "kg".into(),
         step: "daily".into(),
         label: "Forecast weight (model, implied intake held; band from the intake interval)".into(),
-        points: forecast_points,
+        points: fc.points,
     });
-
-    // After a withdrawal there are no habits to estimate: the weekly table stops there.
-    let weekly_to = data.profile.withdrew.map_or(to, |w| w.min(to));
-    out.tables.push(weekly_table(&p, &s, enrolled, weekly_to));
-    out.tables
-        .push(options_table(&p, &s, bw_cur, slope, implied));
-    out.tables.push(plateau_table(&p, &s, enrolled));
-
-    // Flags.
-    if let (Some(g), Some(l), Some(i)) = (gap, logged, implied) {
-        let beyond = g.lower.is_some_and(|x| x > GAP_FLAG_KCAL)
-            || g.upper.is_some_and(|x| x < -GAP_FLAG_KCAL);
-        if beyond {
-            out.push_flag(
-                "logs_inconsistent_with_trend",
-                FlagSeverity::Notice,
-                format!(
-                    "Logged intake averages {l:.0} kcal/d, while the weight trend implies about \
-                     {:.0} kcal/d (95 % interval {:.0} to {:.0}). Food logs often differ from \
-                     what the weight trend shows (Archer et al. 2013); this is worth a \
-                     conversation about logging, not a judgement.",
-                    i.value,
-                    i.lower.unwrap_or(f64::NAN),
-                    i.upper.unwrap_or(f64::NAN)
-                ),
-            );
-        }
-    }
-    // Logged intakes below the usual floors are flagged by the outcomes module, which owns the
-    // safety flags; this module only refuses to recommend going below them.
-    Ok(out)
 }
 
-/// The baseline requirement EI₀ with its variance.
-struct Baseline {
-    ei0: f64,
-    var: f64,
-}
-
-/// EI₀ from the prior and the food logs.
-///
-/// # Method
-/// Prior: EI₀ = RMR₀ × `base_pal`, relative SD √((PAL_SD/PAL)² + RMR_REL_SD²). Over the span
-/// from the first trend day to the last (at least 28 days, at least 7 logged days), the weight
-/// trend implies a mean intake I_T = EI₀ + ΔEI (ΔEI from the span's mean level and slope, with
-/// the fast glycogen/water drop of the diet's start taken out); the logs give
-/// I_L = L/(1 − u₀) with u₀ = 20 % ± 12 points under-reporting and the sampling error of a mean
-/// of logged days. The two are combined by inverse-variance weighting (a normal–normal update,
-/// e.g. Gelman et al. 2013, *Bayesian Data Analysis*, 3rd ed., §2.5), and EI₀ moves by the
-/// same amount as the span's intake.
-fn baseline_requirement(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate) -> Baseline {
-    let prior = p.model.ei0;
-    let rel = ((PAL_SD / p.model.pal).powi(2) + RMR_REL_SD * RMR_REL_SD).sqrt();
-    let var_prior = (prior * rel).powi(2);
-    let fallback = Baseline {
-        ei0: prior,
-        var: var_prior,
+/// The flag for logs far from the weight trend (whole gap interval beyond ±`GAP_FLAG_KCAL`).
+fn push_gap_flag(out: &mut ModuleOutput, cur: &Current) {
+    let (Some(g), Some(l), Some(i)) = (gap(cur), cur.logged, cur.implied) else {
+        return;
     };
-    let Some((&from, first)) = p.trend.level.range(enrolled..=to).next() else {
-        return fallback;
-    };
-    let Some((&last, end)) = p.trend.level.range(..=to).next_back() else {
-        return fallback;
-    };
-    let span = (last - from).num_days() as f64;
-    let (logged, n) = p.logged(from, last);
-    let (Some(l), true) = (logged, span >= 28.0 && n >= 7) else {
-        return fallback;
-    };
-    let Some(level) = mean_band(&p.trend.level, from, last) else {
-        return fallback;
-    };
-    let slope = (end.value - first.value) / span;
-    let i_t =
-        p.implied_intake_from_start(level.value, slope, p.activity_met_hours(from, last), span);
-    let var_t = var_prior + (RHO_REL_SD * p.lin.rho * slope).powi(2);
-    let i_l = l / (1.0 - UNDERREPORT_PRIOR);
-    let var_l = (l * UNDERREPORT_SD / (1.0 - UNDERREPORT_PRIOR).powi(2)).powi(2)
-        + (LOG_DAY_CV * i_l).powi(2) / n as f64;
-    let w_t = 1.0 / var_t;
-    let w_l = 1.0 / var_l;
-    let i_post = (w_t * i_t + w_l * i_l) / (w_t + w_l);
-    Baseline {
-        ei0: prior + (i_post - i_t),
-        var: 1.0 / (w_t + w_l),
+    let beyond =
+        g.lower.is_some_and(|x| x > GAP_FLAG_KCAL) || g.upper.is_some_and(|x| x < -GAP_FLAG_KCAL);
+    if beyond {
+        out.push_flag(
+            "logs_inconsistent_with_trend",
+            FlagSeverity::Notice,
+            format!(
+                "Logged intake averages {l:.0} kcal/d, while the weight trend implies about \
+                 {:.0} kcal/d (95 % interval {:.0} to {:.0}). Food logs often differ from \
+                 what the weight trend shows (Archer et al. 2013); this is worth a \
+                 conversation about logging, not a judgement.",
+                i.value,
+                i.lower.unwrap_or(f64::NAN),
+                i.upper.unwrap_or(f64::NAN)
+            ),
+        );
     }
 }
 
@@ -1449,6 +1537,8 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
     }
     t
 }
+
+mod baseline;
 
 #[cfg(test)]
 mod tests;

@@ -64,6 +64,34 @@ impl MetricModule for EnergyModule {
                  band of NASEM 2023 (1.53–1.68) and of free-living adults measured with doubly \
                  labelled water (Black et al. 1996, Eur J Clin Nutr 50:72; from memory)",
             ),
+            SettingSpec::number(
+                "pal_sd",
+                compute::PAL_SD,
+                "",
+                0.001,
+                0.5,
+                "SD of a person's activity level around base_pal before the food logs and the \
+                 weight trend update it (0.15: ±2 SD spans one FAO/WHO/UNU 2004 lifestyle \
+                 category either side; lower it only when activity was measured, e.g. by \
+                 accelerometry)",
+            ),
+            SettingSpec::number(
+                "underreporting_prior_percent",
+                100.0 * compute::UNDERREPORT_PRIOR,
+                "%",
+                -20.0,
+                60.0,
+                "Prior centre of the share of intake left out of food logs (Trabulsi & Schoeller \
+                 2001: 10–45 % against doubly labelled water; from memory)",
+            ),
+            SettingSpec::number(
+                "underreporting_sd_percent",
+                100.0 * compute::UNDERREPORT_SD,
+                "%",
+                0.1,
+                40.0,
+                "Prior SD of that share, percentage points",
+            ),
             SettingSpec {
                 name: "window_days".into(),
                 kind: SettingKind::Integer,
@@ -151,7 +179,8 @@ impl MetricModule for EnergyModule {
                 "tdee_kcal_per_day",
                 "scalar",
                 "kcal/d",
-                "RMR × base_pal + net activity",
+                "Implied intake minus the energy stored by the weight change; without an implied \
+                 intake, RMR × the estimated activity level + net activity",
             ),
             OutputSpec::new(
                 "logged_intake_kcal_per_day",

@@ -240,6 +240,12 @@ impl MetricModule for TrendModule {
                     "regaining, not_regaining, no_prior_loss or insufficient_data",
                 ),
                 OutputSpec::new(
+                    "source_offsets",
+                    "table",
+                    "",
+                    "Offset of each non-home weigh-in source (clinic, clothed) from the home scale, taken off its readings",
+                ),
+                OutputSpec::new(
                     names::PERIODS,
                     "table",
                     "",
@@ -308,11 +314,109 @@ impl MetricModule for TrendModule {
     }
 }
 
-/// Daily means of the weigh-ins up to `to`: (date, mean kg, number of weigh-ins).
-fn daily_means(data: &ParticipantData, to: NaiveDate) -> Vec<(NaiveDate, f64, usize)> {
+/// Whether a weigh-in source is the person's own scale (no source given, or one naming "home"):
+/// the reference the other sources' offsets are measured against.
+fn is_home_source(source: Option<&str>) -> bool {
+    source.is_none_or(|s| s.to_ascii_lowercase().contains("home"))
+}
+
+/// Prior SD of a weigh-in source's offset from the home scale, kg (program choice: indoor
+/// clothing and shoes weigh about 0.5–1.5 kg, and scales differ by a few tenths; common
+/// practice).
+const SOURCE_OFFSET_PRIOR_SD_KG: f64 = 1.0;
+
+/// Offsets of the non-home weigh-in sources (clinic, clothed, …) from the home-scale trend:
+/// (source, offset kg, readings used).
+///
+/// # Method
+/// The home readings alone are fitted with the same state-space model; each other source's
+/// readings inside the home span give residuals r_i from the smoothed home trend, and the
+/// offset is the posterior mean under a N(0, τ²) prior, Σr_i/(n + σ²/τ²), σ² the home fit's
+/// scatter plus the trend's variance (a normal–normal update; Gelman et al. 2013, *Bayesian
+/// Data Analysis*, 3rd ed., §2.5). Without at least 10 home days the offsets cannot be told
+/// from the trend and none are applied.
+fn source_offsets(
+    data: &ParticipantData,
+    to: NaiveDate,
+    outlier_z: f64,
+) -> Vec<(String, f64, usize)> {
+    let others: std::collections::BTreeSet<String> = data
+        .weights
+        .iter()
+        .filter(|w| w.date <= to && !is_home_source(w.source.as_deref()))
+        .filter_map(|w| w.source.clone())
+        .collect();
+    if others.is_empty() {
+        return Vec::new();
+    }
+    let home = daily_means(data, to, &|w| is_home_source(w.source.as_deref()), &[]);
+    if home.len() < 10 {
+        return Vec::new();
+    }
+    let first = home[0].0;
+    let last = home[home.len() - 1].0;
+    let n = (last - first).num_days() as usize + 1;
+    let t: Vec<f64> = home
+        .iter()
+        .map(|d| (d.0 - first).num_days() as f64)
+        .collect();
+    let y: Vec<Option<f64>> = home.iter().map(|d| Some(d.1)).collect();
+    let fit = estimate_params(&t, &y, outlier_z);
+    let mut grid_y = vec![None; n];
+    for (ti, yi) in t.iter().zip(&y) {
+        grid_y[*ti as usize] = *yi;
+    }
+    let grid_t: Vec<f64> = (0..n).map(|i| i as f64).collect();
+    let sm = rts_smoother(kalman_filter(
+        &grid_t,
+        &grid_y,
+        fit.params,
+        StatePrior::diffuse(home[0].1, DIFFUSE_KAPPA),
+        Some(OutlierScreen { z: outlier_z }),
+    ));
+    others
+        .into_iter()
+        .filter_map(|src| {
+            let (mut sum, mut k, mut var) = (0.0, 0usize, 0.0);
+            for w in data.weights.iter().filter(|w| {
+                w.date <= to
+                    && w.date >= first
+                    && w.date <= last
+                    && w.source.as_deref() == Some(&src)
+            }) {
+                let i = (w.date - first).num_days() as usize;
+                let kg = w.weight.kg();
+                if !kg.is_finite() || kg <= 0.0 {
+                    continue;
+                }
+                sum += kg - sm.mean[i][0];
+                var += fit.params.sigma2_eps + sm.cov[i][0][0];
+                k += 1;
+            }
+            (k > 0).then(|| {
+                let s2 = var / k as f64;
+                let offset = sum / (k as f64 + s2 / SOURCE_OFFSET_PRIOR_SD_KG.powi(2));
+                (src, offset, k)
+            })
+        })
+        .collect()
+}
+
+/// Daily means of the weigh-ins up to `to` that pass `keep`, each less its source's offset:
+/// (date, mean kg, number of weigh-ins).
+fn daily_means(
+    data: &ParticipantData,
+    to: NaiveDate,
+    keep: &dyn Fn(&cohortpress_metric_api::WeighIn) -> bool,
+    offsets: &[(String, f64, usize)],
+) -> Vec<(NaiveDate, f64, usize)> {
     let mut days: Vec<(NaiveDate, f64, usize)> = Vec::new();
-    for w in data.weights.iter().filter(|w| w.date <= to) {
-        let kg = w.weight.kg();
+    for w in data.weights.iter().filter(|w| w.date <= to && keep(w)) {
+        let off = offsets
+            .iter()
+            .find(|o| w.source.as_deref() == Some(o.0.as_str()))
+            .map_or(0.0, |o| o.1);
+        let kg = w.weight.kg() - off;
         if !kg.is_finite() || kg <= 0.0 {
             continue;
         }
@@ -364,6 +468,35 @@ fn periods_table(rows: &[PeriodRow]) -> Table {
     }
 }
 
+fn offsets_table(offsets: &[(String, f64, usize)]) -> Table {
+    use cohortpress_metric_api::{Cell, Column};
+    let col = |name: &str, unit: &str, label: &str| Column {
+        name: name.into(),
+        unit: unit.into(),
+        label: label.into(),
+    };
+    let num = |x: f64| {
+        if x.is_finite() {
+            Cell::Number(x)
+        } else {
+            Cell::Empty
+        }
+    };
+    Table {
+        name: "source_offsets".into(),
+        label: "Weigh-in source offsets from the home scale".into(),
+        columns: vec![
+            col("source", "", "Source"),
+            col("offset_kg", "kg", "Offset"),
+            col("weigh_ins", "", "Weigh-ins"),
+        ],
+        rows: offsets
+            .iter()
+            .map(|(s, o, k)| vec![Cell::Text(s.clone()), num(*o), Cell::Number(*k as f64)])
+            .collect(),
+    }
+}
+
 /// The `periods` table's kind of a merged period (windows without one are not listed).
 fn period_kind(k: WindowKind) -> Option<PeriodKind> {
     match k {
@@ -383,7 +516,8 @@ fn finite(x: f64) -> Option<f64> {
 /// The whole module computation; `to` is the period end (no data after it are used).
 fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> ModuleOutput {
     let mut out = ModuleOutput::default();
-    let days = daily_means(data, to);
+    let offsets = source_offsets(data, to, settings.outlier_z);
+    let days = daily_means(data, to, &|_| true, &offsets);
     let n_weigh_ins: usize = days.iter().map(|d| d.2).sum();
     let days_since = days.last().map(|d| (to - d.0).num_days() as f64);
 
@@ -405,6 +539,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         });
         out.series.push(weigh_in_series(data, to, &[]));
         out.tables.push(periods_table(&[]));
+        out.tables.push(offsets_table(&offsets));
         push_missing_scalars(&mut out, n_weigh_ins, days_since);
         insufficient(&mut out, days.len(), to);
         return out;
@@ -565,6 +700,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         })
         .collect::<Vec<_>>();
     out.tables.push(periods_table(&rows));
+    out.tables.push(offsets_table(&offsets));
 
     // Scalars.
     let cur = sm.mean[last_idx][0];

@@ -31,6 +31,9 @@ pub mod names {
     pub const REGAIN_VERDICT: &str = "regain_verdict";
     /// Plateau, regain, loss and insufficient-data periods (table of [`super::PeriodRow`]).
     pub const PERIODS: &str = "periods";
+    /// Offsets of non-home weigh-in sources from the home scale (table of
+    /// [`super::SourceOffsetRow`]).
+    pub const SOURCE_OFFSETS: &str = "source_offsets";
     /// Trend weight on the last day with a weigh-in (scalar, kg, with interval).
     pub const CURRENT_WEIGHT_KG: &str = "current_weight_kg";
     /// Mean trend slope over the last window (scalar, kg/wk, with interval).
@@ -176,6 +179,44 @@ impl TableRow for PeriodRow {
 /// Label of the `periods` table.
 pub const PERIODS_LABEL: &str = "Trend periods";
 
+/// One row of the `source_offsets` table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SourceOffsetRow {
+    /// The weigh-in source as written.
+    pub source: String,
+    /// Its offset from the home-scale trend, kg (taken off its readings).
+    pub offset_kg: Option<f64>,
+    /// Weigh-ins of that source the offset rests on.
+    pub weigh_ins: Option<f64>,
+}
+
+impl TableRow for SourceOffsetRow {
+    const COLUMNS: &'static [(&'static str, &'static str, &'static str)] = &[
+        ("source", "", "Source"),
+        ("offset_kg", "kg", "Offset"),
+        ("weigh_ins", "", "Weigh-ins"),
+    ];
+
+    fn read(r: &RowReader<'_>) -> Result<Self, ViewError> {
+        Ok(SourceOffsetRow {
+            source: r.required("source", r.text("source")?)?.to_string(),
+            offset_kg: r.number("offset_kg")?,
+            weigh_ins: r.number("weigh_ins")?,
+        })
+    }
+
+    fn write(&self) -> Vec<Cell> {
+        vec![
+            cell::text(Some(&self.source)),
+            cell::number(self.offset_kg),
+            cell::number(self.weigh_ins),
+        ]
+    }
+}
+
+/// Label of the `source_offsets` table.
+pub const SOURCE_OFFSETS_LABEL: &str = "Weigh-in source offsets from the home scale";
+
 /// Everything the `trend` module outputs, typed.
 ///
 /// Outputs the module leaves out when there are fewer than 3 days with a weigh-in read as
@@ -202,6 +243,8 @@ pub struct TrendView {
     pub regain_verdict: Option<RegainVerdict>,
     /// Periods.
     pub periods: Vec<PeriodRow>,
+    /// Offsets of non-home weigh-in sources.
+    pub source_offsets: Vec<SourceOffsetRow>,
     /// Trend weight on the last day with a weigh-in, kg.
     pub current_weight_kg: Interval,
     /// Mean trend slope over the last window, kg/wk.
@@ -250,6 +293,9 @@ impl ModuleView for TrendView {
                 .flatten(),
             regain_verdict: r.optional(REGAIN_VERDICT, || r.code(REGAIN_VERDICT))?,
             periods: r.table(PERIODS)?,
+            source_offsets: r
+                .optional(SOURCE_OFFSETS, || r.table(SOURCE_OFFSETS))?
+                .unwrap_or_default(),
             current_weight_kg: r.interval(CURRENT_WEIGHT_KG)?,
             slope_kg_per_week: r.interval(SLOPE_KG_PER_WEEK)?,
             theil_sen_slope_kg_per_week: r.interval(THEIL_SEN_SLOPE_KG_PER_WEEK)?,
@@ -278,6 +324,7 @@ impl ModuleView for TrendView {
             w.code(REGAIN_VERDICT, v);
         }
         w.table(PERIODS, PERIODS_LABEL, &self.periods);
+        w.table(SOURCE_OFFSETS, SOURCE_OFFSETS_LABEL, &self.source_offsets);
         w.interval(CURRENT_WEIGHT_KG, self.current_weight_kg);
         w.interval(SLOPE_KG_PER_WEEK, self.slope_kg_per_week);
         w.interval(
@@ -319,6 +366,7 @@ impl Default for TrendView {
             regain_confidence: None,
             regain_verdict: None,
             periods: vec![],
+            source_offsets: vec![],
             current_weight_kg: Interval::default(),
             slope_kg_per_week: Interval::default(),
             theil_sen_slope_kg_per_week: Interval::default(),

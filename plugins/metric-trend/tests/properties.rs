@@ -419,6 +419,89 @@ fn spec_settings_have_defaults_and_ranges() {
     );
 }
 
+/// Runs the module on home weigh-ins plus `clinic` readings with the given source.
+fn run_with_clinic(
+    home: &[(i64, f64)],
+    clinic: &[(i64, f64)],
+    source: Option<&str>,
+    to: i64,
+) -> ModuleOutput {
+    let module = TrendModule;
+    let settings = module
+        .spec()
+        .resolve_settings(&serde_json::Value::Null)
+        .unwrap();
+    let mut data = participant(home);
+    data.weights.extend(clinic.iter().map(|&(d, kg)| WeighIn {
+        date: day(d),
+        time: None,
+        weight: Mass::from_kg(kg),
+        source: source.map(str::to_string),
+    }));
+    data.weights.sort_by_key(|w| w.date);
+    let ctx = ModuleContext {
+        program: ProgramInfo {
+            id: "demo".into(),
+            title: "Demo".into(),
+            start: day0(),
+            end: day(364),
+            units: UnitSystem::Metric,
+            targets: Targets::default(),
+        },
+        period: Period {
+            from: day0(),
+            to: day(to),
+        },
+        as_of: day(to),
+        settings,
+        earlier: BTreeMap::new(),
+    };
+    module.compute(&ctx, &data).unwrap()
+}
+
+#[test]
+fn clothed_clinic_weigh_ins_get_their_own_offset() {
+    // Home scale: −0.5 kg/wk from 95 kg, σ 0.5 kg, about 4 days a week, 16 weeks. Clinic:
+    // every two weeks, clothed (+1.2 kg), in the last week twice.
+    let home = linear(31, 112, -0.5, 0.5, 0.55);
+    let mut rng = Rng(32);
+    let truth = |d: i64| 95.0 - 0.5 / 7.0 * d as f64;
+    let clinic: Vec<(i64, f64)> = (3..112)
+        .step_by(14)
+        .chain([108, 110])
+        .map(|d| (d, truth(d) + 1.2 + 0.2 * rng.normal()))
+        .collect();
+    let named = run_with_clinic(&home, &clinic, Some("clinic"), 111);
+    let t = named.table("source_offsets").unwrap();
+    assert_eq!(t.rows.len(), 1);
+    assert_eq!(t.rows[0][0], Cell::Text("clinic".into()));
+    let Cell::Number(off) = t.rows[0][1] else {
+        panic!("{:?}", t.rows[0]);
+    };
+    // Shrunk a little towards 0 by the N(0, 1 kg) prior, but clearly the clothes.
+    assert!((off - 1.2).abs() < 0.35, "offset {off}");
+    // With the offset the end of the trend stays with the home scale's truth; the same
+    // readings without a source (taken as home-scale readings) pull it up.
+    let end = |o: &ModuleOutput| o.scalar("current_weight_kg").unwrap();
+    let unnamed = run_with_clinic(&home, &clinic, None, 111);
+    let home_only = run(&home, 111);
+    assert!(
+        (end(&named) - end(&home_only)).abs() < 0.15,
+        "{} vs {}",
+        end(&named),
+        end(&home_only)
+    );
+    assert!(
+        end(&unnamed) - end(&home_only) > (end(&named) - end(&home_only)).abs() + 0.1,
+        "{} / {} / {}",
+        end(&unnamed),
+        end(&named),
+        end(&home_only)
+    );
+    // Home-only data have no offsets.
+    assert!(home_only.table("source_offsets").unwrap().rows.is_empty());
+}
+
 /// Water and glycogen refilled by rising intake flatten the scale before tissue loss stops; with
 /// a food log the plateau is dated where tissue loss stopped. The fast weight is built here with
 /// Hall's linearisation (Hall et al. 2011, Lancet 378:826, appendix): κ·(x − 1) with
