@@ -365,7 +365,6 @@ impl MetricModule for AdherenceModule {
         data: &ParticipantData,
     ) -> Result<ModuleOutput, ModuleError> {
         let profile = &data.profile;
-        let targets = &profile.targets;
         let start = profile.enrolled;
         let end = match profile.withdrew {
             Some(w) if w < ctx.period.to => w,
@@ -373,230 +372,269 @@ impl MetricModule for AdherenceModule {
         };
         let withdrawn = profile.withdrew.is_some_and(|w| w <= ctx.period.to);
         let rec = Records::collect(data, start, end);
-
-        // Weekly rows.
-        let mut weeks = Vec::new();
-        if start <= end {
-            let mut ws = week_start(start);
-            while ws <= end {
-                let we = ws + Duration::days(6);
-                let (a, b) = (ws.max(start), we.min(end));
-                let covered = span_days(a, b);
-                let weigh_ins = count_in(&rec.weigh_in_days, a, b);
-                let food_log_days = count_in(&rec.food_days, a, b);
-                let activity_minutes = sum_in(&rec.activity_minutes, a, b);
-                let (sessions_offered, sessions_attended) = rec.sessions_in(a, b);
-                weeks.push(Week {
-                    start: ws,
-                    covered,
-                    weigh_ins,
-                    food_log_days,
-                    activity_minutes,
-                    sessions_offered,
-                    sessions_attended,
-                    met_weigh_in: meets(weigh_ins as f64, targets.weigh_ins_per_week, covered),
-                    met_food_log: meets(
-                        food_log_days as f64,
-                        targets.food_log_days_per_week,
-                        covered,
-                    ),
-                    met_activity: meets(
-                        activity_minutes,
-                        targets.activity_minutes_per_week,
-                        covered,
-                    ),
-                });
-                ws += Duration::days(7);
-            }
-        }
+        let span = Span { start, end };
+        let weeks = weeks(&rec, data, span);
 
         let mut output = ModuleOutput::default();
-        output.tables.push(Table {
-            name: names::WEEKLY.into(),
-            label: WEEKLY_LABEL.into(),
-            columns: WeekRow::columns(),
-            rows: weeks
-                .iter()
-                .map(|w| {
-                    WeekRow {
-                        week_start: w.start,
-                        days_covered: Some(w.covered as f64),
-                        weigh_ins: Some(w.weigh_ins as f64),
-                        food_log_days: Some(w.food_log_days as f64),
-                        activity_minutes: Some(w.activity_minutes),
-                        sessions_offered: Some(w.sessions_offered as f64),
-                        sessions_attended: Some(w.sessions_attended as f64),
-                        met_weigh_in_target: Some(w.met_weigh_in),
-                        met_food_log_target: Some(w.met_food_log),
-                        met_activity_target: Some(w.met_activity),
-                    }
-                    .write()
-                })
-                .collect(),
-        });
-
-        let series = |name: &str, unit: &str, label: &str, f: &dyn Fn(&Week) -> f64| Series {
-            name: name.into(),
-            unit: unit.into(),
-            step: "weekly".into(),
-            label: label.into(),
-            points: weeks
-                .iter()
-                .map(|w| Point {
-                    date: w.start,
-                    value: f(w),
-                    lower: None,
-                    upper: None,
-                })
-                .collect(),
-        };
-        output.series.push(series(
-            names::WEEKLY_ACTIVITY_MINUTES,
-            "min",
-            "Activity minutes per week (moderate-equivalent)",
-            &|w| w.activity_minutes,
-        ));
-        output.series.push(series(
-            names::WEEKLY_WEIGH_INS,
-            "d",
-            "Days weighed per week",
-            &|w| w.weigh_ins as f64,
-        ));
-        output.series.push(series(
-            names::WEEKLY_FOOD_LOG_DAYS,
-            "d",
-            "Days with a food log per week",
-            &|w| w.food_log_days as f64,
-        ));
-
-        // Reporting-period scalars over the covered part of the period.
-        let (pa, pb) = (ctx.period.from.max(start), end);
-        let covered = span_days(pa, pb);
-        let per_week = |n: f64| (covered > 0).then(|| n * 7.0 / covered as f64);
-        output.push_scalar(
-            names::WEIGH_INS_PER_WEEK,
-            per_week(count_in(&rec.weigh_in_days, pa, pb) as f64),
-            "d/wk",
-            "Days weighed per week",
-        );
-        output.push_scalar(
-            names::FOOD_LOG_DAYS_PER_WEEK,
-            per_week(count_in(&rec.food_days, pa, pb) as f64),
-            "d/wk",
-            "Days with a food log per week",
-        );
-        output.push_scalar(
-            names::ACTIVITY_MINUTES_PER_WEEK,
-            per_week(sum_in(&rec.activity_minutes, pa, pb)),
-            "min/wk",
-            "Activity minutes per week (moderate-equivalent)",
-        );
-        let (offered, attended) = rec.sessions_in(pa, pb);
-        output.push_scalar(
-            names::SESSIONS_OFFERED,
-            Some(offered as f64),
-            "",
-            "Sessions offered",
-        );
-        output.push_scalar(
-            names::SESSIONS_ATTENDED,
-            Some(attended as f64),
-            "",
-            "Sessions attended",
-        );
-        output.push_scalar(
-            names::ATTENDANCE_PERCENT,
-            (offered > 0).then(|| 100.0 * attended as f64 / offered as f64),
-            "%",
-            "Sessions attended",
-        );
-        // Program to date: with monthly reports a period often holds one session or none, so
-        // attendance is judged over everything offered since enrolment (as lifestyle-program
-        // standards count sessions over months, not weeks).
-        let (offered_all, attended_all) = rec.sessions_in(start, end);
-        output.push_scalar(
-            names::SESSIONS_OFFERED_TO_DATE,
-            Some(offered_all as f64),
-            "",
-            "Sessions offered since enrolment",
-        );
-        output.push_scalar(
-            names::SESSIONS_ATTENDED_TO_DATE,
-            Some(attended_all as f64),
-            "",
-            "Sessions attended since enrolment",
-        );
-        output.push_scalar(
-            names::ATTENDANCE_TO_DATE_PERCENT,
-            (offered_all > 0).then(|| 100.0 * attended_all as f64 / offered_all as f64),
-            "%",
-            "Sessions attended since enrolment",
-        );
-        let period_weeks: Vec<&Week> = weeks
-            .iter()
-            .filter(|w| covered > 0 && w.start <= pb && w.start + Duration::days(6) >= pa)
-            .collect();
-        output.push_scalar(
-            names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,
-            (!period_weeks.is_empty()).then(|| {
-                100.0 * period_weeks.iter().filter(|w| w.met_activity).count() as f64
-                    / period_weeks.len() as f64
-            }),
-            "%",
-            "Weeks meeting the activity target",
-        );
-
-        // Program-to-date streaks and gaps.
-        let observed = start <= end;
-        output.push_scalar(
-            names::LONGEST_WEIGH_IN_STREAK_DAYS,
-            observed.then(|| longest_streak(&rec.weigh_in_days) as f64),
-            "d",
-            "Longest run of days weighed",
-        );
-        let any_record: BTreeSet<NaiveDate> = rec
-            .weigh_in_days
-            .iter()
-            .chain(&rec.food_days)
-            .chain(&rec.activity_days)
-            .copied()
-            .collect();
-        let (longest_gap, current_gap) = if observed {
-            gaps(&any_record, start, end)
-        } else {
-            (0, 0)
-        };
-        output.push_scalar(
-            names::LONGEST_GAP_DAYS,
-            observed.then_some(longest_gap as f64),
-            "d",
-            "Longest run of days with no record",
-        );
-        let last = any_record.last().copied();
-        output.push_scalar(
-            names::DAYS_SINCE_LAST_RECORD,
-            last.map(|l| (end - l).num_days() as f64),
-            "d",
-            "Days since the last record",
-        );
-
-        // A participant who has left is not expected to keep records, so no gap flag for them.
-        let gap_flag_days = ctx.setting_f64("gap_flag_days", DEFAULT_GAP_FLAG_DAYS as f64);
-        if observed && !withdrawn && current_gap as f64 >= gap_flag_days {
-            let since = match last {
-                Some(l) => format!(" (the last one was on {l})"),
-                None => " since enrolment".to_string(),
-            };
-            output.push_flag(
-                AdherenceFlag::Gap.as_str(),
-                FlagSeverity::Notice,
-                format!(
-                    "No weigh-in, food log or activity has been recorded for {current_gap} days{since}. \
-                     A short check-in with the program team may help."
-                ),
-            );
-        }
+        output.tables.push(weekly_table(&weeks));
+        push_weekly_series(&mut output, &weeks);
+        push_period_scalars(&mut output, ctx, &rec, &weeks, span);
+        push_streaks_and_gap(&mut output, ctx, &rec, span, withdrawn);
         Ok(output)
+    }
+}
+
+/// The days a participant is followed: enrolment to the end of the period (or withdrawal).
+#[derive(Clone, Copy)]
+struct Span {
+    start: NaiveDate,
+    end: NaiveDate,
+}
+
+/// Weekly rows, Monday to Sunday, over the span.
+fn weeks(rec: &Records, data: &ParticipantData, span: Span) -> Vec<Week> {
+    let targets = &data.profile.targets;
+    let Span { start, end } = span;
+    let mut weeks = Vec::new();
+    if start <= end {
+        let mut ws = week_start(start);
+        while ws <= end {
+            let we = ws + Duration::days(6);
+            let (a, b) = (ws.max(start), we.min(end));
+            let covered = span_days(a, b);
+            let weigh_ins = count_in(&rec.weigh_in_days, a, b);
+            let food_log_days = count_in(&rec.food_days, a, b);
+            let activity_minutes = sum_in(&rec.activity_minutes, a, b);
+            let (sessions_offered, sessions_attended) = rec.sessions_in(a, b);
+            weeks.push(Week {
+                start: ws,
+                covered,
+                weigh_ins,
+                food_log_days,
+                activity_minutes,
+                sessions_offered,
+                sessions_attended,
+                met_weigh_in: meets(weigh_ins as f64, targets.weigh_ins_per_week, covered),
+                met_food_log: meets(
+                    food_log_days as f64,
+                    targets.food_log_days_per_week,
+                    covered,
+                ),
+                met_activity: meets(activity_minutes, targets.activity_minutes_per_week, covered),
+            });
+            ws += Duration::days(7);
+        }
+    }
+    weeks
+}
+
+/// The `weekly` table.
+fn weekly_table(weeks: &[Week]) -> Table {
+    Table {
+        name: names::WEEKLY.into(),
+        label: WEEKLY_LABEL.into(),
+        columns: WeekRow::columns(),
+        rows: weeks
+            .iter()
+            .map(|w| {
+                WeekRow {
+                    week_start: w.start,
+                    days_covered: Some(w.covered as f64),
+                    weigh_ins: Some(w.weigh_ins as f64),
+                    food_log_days: Some(w.food_log_days as f64),
+                    activity_minutes: Some(w.activity_minutes),
+                    sessions_offered: Some(w.sessions_offered as f64),
+                    sessions_attended: Some(w.sessions_attended as f64),
+                    met_weigh_in_target: Some(w.met_weigh_in),
+                    met_food_log_target: Some(w.met_food_log),
+                    met_activity_target: Some(w.met_activity),
+                }
+                .write()
+            })
+            .collect(),
+    }
+}
+
+/// The weekly series: activity minutes, days weighed, days with a food log.
+fn push_weekly_series(output: &mut ModuleOutput, weeks: &[Week]) {
+    let series = |name: &str, unit: &str, label: &str, f: &dyn Fn(&Week) -> f64| Series {
+        name: name.into(),
+        unit: unit.into(),
+        step: "weekly".into(),
+        label: label.into(),
+        points: weeks
+            .iter()
+            .map(|w| Point {
+                date: w.start,
+                value: f(w),
+                lower: None,
+                upper: None,
+            })
+            .collect(),
+    };
+    output.series.push(series(
+        names::WEEKLY_ACTIVITY_MINUTES,
+        "min",
+        "Activity minutes per week (moderate-equivalent)",
+        &|w| w.activity_minutes,
+    ));
+    output.series.push(series(
+        names::WEEKLY_WEIGH_INS,
+        "d",
+        "Days weighed per week",
+        &|w| w.weigh_ins as f64,
+    ));
+    output.series.push(series(
+        names::WEEKLY_FOOD_LOG_DAYS,
+        "d",
+        "Days with a food log per week",
+        &|w| w.food_log_days as f64,
+    ));
+}
+
+/// Reporting-period scalars over the covered part of the period, and sessions to date.
+fn push_period_scalars(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    rec: &Records,
+    weeks: &[Week],
+    span: Span,
+) {
+    let Span { start, end } = span;
+    let (pa, pb) = (ctx.period.from.max(start), end);
+    let covered = span_days(pa, pb);
+    let per_week = |n: f64| (covered > 0).then(|| n * 7.0 / covered as f64);
+    output.push_scalar(
+        names::WEIGH_INS_PER_WEEK,
+        per_week(count_in(&rec.weigh_in_days, pa, pb) as f64),
+        "d/wk",
+        "Days weighed per week",
+    );
+    output.push_scalar(
+        names::FOOD_LOG_DAYS_PER_WEEK,
+        per_week(count_in(&rec.food_days, pa, pb) as f64),
+        "d/wk",
+        "Days with a food log per week",
+    );
+    output.push_scalar(
+        names::ACTIVITY_MINUTES_PER_WEEK,
+        per_week(sum_in(&rec.activity_minutes, pa, pb)),
+        "min/wk",
+        "Activity minutes per week (moderate-equivalent)",
+    );
+    let (offered, attended) = rec.sessions_in(pa, pb);
+    output.push_scalar(
+        names::SESSIONS_OFFERED,
+        Some(offered as f64),
+        "",
+        "Sessions offered",
+    );
+    output.push_scalar(
+        names::SESSIONS_ATTENDED,
+        Some(attended as f64),
+        "",
+        "Sessions attended",
+    );
+    output.push_scalar(
+        names::ATTENDANCE_PERCENT,
+        (offered > 0).then(|| 100.0 * attended as f64 / offered as f64),
+        "%",
+        "Sessions attended",
+    );
+    // Program to date: with monthly reports a period often holds one session or none, so
+    // attendance is judged over everything offered since enrolment (as lifestyle-program
+    // standards count sessions over months, not weeks).
+    let (offered_all, attended_all) = rec.sessions_in(start, end);
+    output.push_scalar(
+        names::SESSIONS_OFFERED_TO_DATE,
+        Some(offered_all as f64),
+        "",
+        "Sessions offered since enrolment",
+    );
+    output.push_scalar(
+        names::SESSIONS_ATTENDED_TO_DATE,
+        Some(attended_all as f64),
+        "",
+        "Sessions attended since enrolment",
+    );
+    output.push_scalar(
+        names::ATTENDANCE_TO_DATE_PERCENT,
+        (offered_all > 0).then(|| 100.0 * attended_all as f64 / offered_all as f64),
+        "%",
+        "Sessions attended since enrolment",
+    );
+    let period_weeks: Vec<&Week> = weeks
+        .iter()
+        .filter(|w| covered > 0 && w.start <= pb && w.start + Duration::days(6) >= pa)
+        .collect();
+    output.push_scalar(
+        names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,
+        (!period_weeks.is_empty()).then(|| {
+            100.0 * period_weeks.iter().filter(|w| w.met_activity).count() as f64
+                / period_weeks.len() as f64
+        }),
+        "%",
+        "Weeks meeting the activity target",
+    );
+}
+
+/// Program-to-date streaks and gaps, and the gap flag.
+fn push_streaks_and_gap(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    rec: &Records,
+    span: Span,
+    withdrawn: bool,
+) {
+    let Span { start, end } = span;
+    let observed = start <= end;
+    output.push_scalar(
+        names::LONGEST_WEIGH_IN_STREAK_DAYS,
+        observed.then(|| longest_streak(&rec.weigh_in_days) as f64),
+        "d",
+        "Longest run of days weighed",
+    );
+    let any_record: BTreeSet<NaiveDate> = rec
+        .weigh_in_days
+        .iter()
+        .chain(&rec.food_days)
+        .chain(&rec.activity_days)
+        .copied()
+        .collect();
+    let (longest_gap, current_gap) = if observed {
+        gaps(&any_record, start, end)
+    } else {
+        (0, 0)
+    };
+    output.push_scalar(
+        names::LONGEST_GAP_DAYS,
+        observed.then_some(longest_gap as f64),
+        "d",
+        "Longest run of days with no record",
+    );
+    let last = any_record.last().copied();
+    output.push_scalar(
+        names::DAYS_SINCE_LAST_RECORD,
+        last.map(|l| (end - l).num_days() as f64),
+        "d",
+        "Days since the last record",
+    );
+
+    // A participant who has left is not expected to keep records, so no gap flag for them.
+    let gap_flag_days = ctx.setting_f64("gap_flag_days", DEFAULT_GAP_FLAG_DAYS as f64);
+    if observed && !withdrawn && current_gap as f64 >= gap_flag_days {
+        let since = match last {
+            Some(l) => format!(" (the last one was on {l})"),
+            None => " since enrolment".to_string(),
+        };
+        output.push_flag(
+            AdherenceFlag::Gap.as_str(),
+            FlagSeverity::Notice,
+            format!(
+                "No weigh-in, food log or activity has been recorded for {current_gap} days{since}. \
+                 A short check-in with the program team may help."
+            ),
+        );
     }
 }
 

@@ -597,6 +597,58 @@ impl MetricModule for OutcomesModule {
         data: &ParticipantData,
     ) -> Result<ModuleOutput, ModuleError> {
         let profile = &data.profile;
+        let mut output = ModuleOutput::default();
+        let w = Weights::of(ctx, data);
+        let bmi1 = push_weight_outcomes(&mut output, ctx, data, &w);
+        output.tables.push(milestones_table(w.w0, &w.levels));
+        // Labs up to the end of the period.
+        let labs: Vec<&LabResult> = data
+            .labs
+            .iter()
+            .filter(|l| l.date <= ctx.period.to)
+            .collect();
+        output.tables.push(labs_table(&labs, profile.sex));
+
+        // ---- Flags ----
+        if w.w0.is_none() {
+            output.push_flag(
+                OutcomesFlag::InsufficientData.as_str(),
+                FlagSeverity::Info,
+                "No weigh-in on or after enrolment yet, so weight outcomes cannot be shown.",
+            );
+        }
+        let fast = push_fast_loss_flag(&mut output, ctx, &w.levels);
+        let low_intake = push_intake_flags(&mut output, ctx, data);
+        push_low_bmi_flag(&mut output, bmi1);
+        push_lab_flags(&mut output, &labs, profile.sex);
+        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG) && (fast || low_intake) {
+            push_medication_flag(&mut output, fast, low_intake);
+        }
+        Ok(output)
+    }
+}
+
+/// The weights the outcomes are built from.
+struct Weights {
+    /// Daily mean weigh-ins from enrolment to the end of the period.
+    raw: Vec<(NaiveDate, f64)>,
+    /// Starting weight: the first weigh-in day on or after enrolment.
+    w0: Option<f64>,
+    /// Current weight with its interval.
+    current: Option<f64>,
+    lower: Option<f64>,
+    upper: Option<f64>,
+    /// Where the current weight came from.
+    source: CurrentWeightSource,
+    /// Trend levels by day from the baseline day, else the raw daily means.
+    levels: Vec<(NaiveDate, f64)>,
+    /// The trend's slope, kg/week, when the trend module gave one.
+    trend_rate: Option<f64>,
+}
+
+impl Weights {
+    fn of(ctx: &ModuleContext, data: &ParticipantData) -> Weights {
+        let profile = &data.profile;
         let to = ctx.period.to;
         // The trend's output, read through its view (an output that does not read is treated
         // as no trend, and fails loudly in debug builds).
@@ -605,7 +657,6 @@ impl MetricModule for OutcomesModule {
                 .inspect_err(|e| debug_assert!(false, "{e}"))
                 .ok()
         });
-        let mut output = ModuleOutput::default();
 
         // Baseline: the first weigh-in day on or after enrolment, mean of that day.
         let raw = daily_means(data, profile.enrolled, to);
@@ -636,284 +687,322 @@ impl MetricModule for OutcomesModule {
             }
             _ => raw.clone(),
         };
-
-        let m = profile.height.m();
-        let bmi_of = |kg: Option<f64>| kg.filter(|_| m > 0.0).map(|kg| bmi(kg, m));
-        let change = w0.zip(current).map(|(a, b)| b - a);
-        let change_pct = w0.zip(change).map(|(a, c)| 100.0 * c / a);
-        let (bmi0, bmi1) = (bmi_of(w0), bmi_of(current));
-
-        output.push_scalar(names::BASELINE_WEIGHT_KG, w0, "kg", "Starting weight");
-        output.push_interval(
-            names::CURRENT_WEIGHT_KG,
+        let trend_rate = trend.as_ref().and_then(|t| t.slope_kg_per_week.value);
+        Weights {
+            raw,
+            w0,
             current,
             lower,
             upper,
-            "kg",
-            "Current weight",
-        );
-        output.push_scalar(names::CHANGE_KG, change, "kg", "Weight change");
-        output.push_scalar(names::CHANGE_PERCENT, change_pct, "%", "Weight change");
-        output.push_scalar(names::BMI_BASELINE_KG_M2, bmi0, "kg/m2", "Starting BMI");
-        output.push_scalar(names::BMI_CURRENT_KG_M2, bmi1, "kg/m2", "Current BMI");
-        output.push_scalar(
-            names::BMI_CHANGE_KG_M2,
-            bmi0.zip(bmi1).map(|(a, b)| b - a),
-            "kg/m2",
-            "BMI change",
-        );
-        let rate = match trend.as_ref().and_then(|t| t.slope_kg_per_week.value) {
-            Some(r) => Some(r),
-            None => {
-                let in_period: Vec<_> = raw
-                    .iter()
-                    .copied()
-                    .filter(|(d, _)| *d >= ctx.period.from)
-                    .collect();
-                ols_slope_per_week(&in_period)
-            }
-        };
-        output.push_scalar(
-            names::RATE_KG_PER_WEEK,
-            rate,
-            "kg/wk",
-            "Rate of change per week",
-        );
-        let max_loss = w0.filter(|_| !levels.is_empty()).map(|w0| {
-            levels
+            source,
+            levels,
+            trend_rate,
+        }
+    }
+}
+
+/// Starting and current weight, change, BMI, rate and largest loss, with their categories.
+/// Returns the current BMI.
+fn push_weight_outcomes(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    data: &ParticipantData,
+    w: &Weights,
+) -> Option<f64> {
+    let (w0, current) = (w.w0, w.current);
+    let m = data.profile.height.m();
+    let bmi_of = |kg: Option<f64>| kg.filter(|_| m > 0.0).map(|kg| bmi(kg, m));
+    let change = w0.zip(current).map(|(a, b)| b - a);
+    let change_pct = w0.zip(change).map(|(a, c)| 100.0 * c / a);
+    let (bmi0, bmi1) = (bmi_of(w0), bmi_of(current));
+
+    output.push_scalar(names::BASELINE_WEIGHT_KG, w0, "kg", "Starting weight");
+    output.push_interval(
+        names::CURRENT_WEIGHT_KG,
+        current,
+        w.lower,
+        w.upper,
+        "kg",
+        "Current weight",
+    );
+    output.push_scalar(names::CHANGE_KG, change, "kg", "Weight change");
+    output.push_scalar(names::CHANGE_PERCENT, change_pct, "%", "Weight change");
+    output.push_scalar(names::BMI_BASELINE_KG_M2, bmi0, "kg/m2", "Starting BMI");
+    output.push_scalar(names::BMI_CURRENT_KG_M2, bmi1, "kg/m2", "Current BMI");
+    output.push_scalar(
+        names::BMI_CHANGE_KG_M2,
+        bmi0.zip(bmi1).map(|(a, b)| b - a),
+        "kg/m2",
+        "BMI change",
+    );
+    let rate = match w.trend_rate {
+        Some(r) => Some(r),
+        None => {
+            let in_period: Vec<_> = w
+                .raw
                 .iter()
-                .map(|(_, l)| 100.0 * (w0 - l) / w0)
-                .fold(0.0, f64::max)
-        });
-        output.push_scalar(
-            names::MAX_LOSS_PERCENT,
-            max_loss,
-            "%",
-            "Largest loss so far",
-        );
+                .copied()
+                .filter(|(d, _)| *d >= ctx.period.from)
+                .collect();
+            ols_slope_per_week(&in_period)
+        }
+    };
+    output.push_scalar(
+        names::RATE_KG_PER_WEEK,
+        rate,
+        "kg/wk",
+        "Rate of change per week",
+    );
+    let max_loss = w0.filter(|_| !w.levels.is_empty()).map(|w0| {
+        w.levels
+            .iter()
+            .map(|(_, l)| 100.0 * (w0 - l) / w0)
+            .fold(0.0, f64::max)
+    });
+    output.push_scalar(
+        names::MAX_LOSS_PERCENT,
+        max_loss,
+        "%",
+        "Largest loss so far",
+    );
 
-        if let Some(b) = bmi0 {
-            let c = who_bmi_class(b);
-            output.push_text(names::BMI_CATEGORY_BASELINE, c.as_str(), c.label());
-        }
-        if let Some(b) = bmi1 {
-            let c = who_bmi_class(b);
-            output.push_text(names::BMI_CATEGORY_CURRENT, c.as_str(), c.label());
-        }
-        if let Some(p) = change_pct {
-            let c = weight_change_class(p);
-            output.push_text(names::WEIGHT_CHANGE_CATEGORY, c.as_str(), c.label());
-        }
-        output.push_text(
-            names::CURRENT_WEIGHT_SOURCE,
-            source.as_str(),
-            source.label(),
-        );
+    if let Some(b) = bmi0 {
+        let c = who_bmi_class(b);
+        output.push_text(names::BMI_CATEGORY_BASELINE, c.as_str(), c.label());
+    }
+    if let Some(b) = bmi1 {
+        let c = who_bmi_class(b);
+        output.push_text(names::BMI_CATEGORY_CURRENT, c.as_str(), c.label());
+    }
+    if let Some(p) = change_pct {
+        let c = weight_change_class(p);
+        output.push_text(names::WEIGHT_CHANGE_CATEGORY, c.as_str(), c.label());
+    }
+    output.push_text(
+        names::CURRENT_WEIGHT_SOURCE,
+        w.source.as_str(),
+        w.source.label(),
+    );
+    bmi1
+}
 
-        // Milestones: first day the trend level is at or below the threshold weight.
-        let mut rows = Vec::new();
-        for t in MILESTONES_PERCENT {
+/// Milestones: first day the trend level is at or below the threshold weight.
+fn milestones_table(w0: Option<f64>, levels: &[(NaiveDate, f64)]) -> Table {
+    let rows = MILESTONES_PERCENT
+        .into_iter()
+        .map(|t| {
             let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
             let reached = threshold
                 .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
                 .map(|(d, _)| *d);
-            rows.push(
-                MilestoneRow {
-                    threshold_percent: t,
-                    threshold_weight_kg: threshold,
-                    reached: reached.is_some(),
-                    date_reached: reached,
-                }
-                .write(),
-            );
-        }
-        output.tables.push(Table {
-            name: names::MILESTONES.into(),
-            label: MILESTONES_LABEL.into(),
-            columns: MilestoneRow::columns(),
-            rows,
-        });
-
-        // Labs up to the end of the period.
-        let labs: Vec<&LabResult> = data.labs.iter().filter(|l| l.date <= to).collect();
-        output.tables.push(Table {
-            name: names::LABS.into(),
-            label: LABS_LABEL.into(),
-            columns: LabRow::columns(),
-            rows: labs
-                .iter()
-                .map(|l| {
-                    let alt = lab_alt(l);
-                    LabRow {
-                        date: l.date,
-                        test: l.test,
-                        value: l.value,
-                        unit: l.test.canonical_unit().into(),
-                        value_alt: alt.map(|a| a.0),
-                        unit_alt: alt.map(|a| a.1.into()),
-                        category: lab_category(l, profile.sex),
-                        eag_mg_dl: (l.test == LabTest::Hba1c).then(|| eag_mg_dl(l.value)),
-                    }
-                    .write()
-                })
-                .collect(),
-        });
-
-        // ---- Flags ----
-        if w0.is_none() {
-            output.push_flag(
-                OutcomesFlag::InsufficientData.as_str(),
-                FlagSeverity::Info,
-                "No weigh-in on or after enrolment yet, so weight outcomes cannot be shown.",
-            );
-        }
-
-        let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
-        let span = ctx
-            .setting_f64("fast_loss_span_days", 21.0)
-            .round()
-            .max(1.0) as usize;
-        // Only spans that end in the reporting period: a fast spell months ago was flagged in
-        // that month's report and is not raised again every month after.
-        let daily: Vec<(NaiveDate, f64)> = fill_daily(&levels)
-            .into_iter()
-            .filter(|(d, _)| *d <= ctx.period.to)
-            .collect();
-        let fast =
-            fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
-        if let Some((fastest, (d0, d1, rate))) = fast {
-            output.push_flag(
-                OutcomesFlag::FastLoss.as_str(),
-                FlagSeverity::Clinical,
-                format!(
-                    "Weight came down faster than {} a week over {span} days in a row (most \
-                     recently {d0} to {d1}: about {} a week; fastest about {} a week). Losing \
-                     more than about 1 kg (2 lb) a week for several weeks is worth reviewing \
-                     with a licensed clinician.",
-                    kg_lb(limit),
-                    kg_lb(rate),
-                    kg_lb(fastest),
-                ),
-            );
-        }
-
-        let intake: Vec<f64> = data
-            .intake
-            .iter()
-            .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
-            .map(|i| i.kcal)
-            .collect();
-        let mut low_intake = false;
-        if intake.len() >= MIN_INTAKE_DAYS {
-            let mean = intake.iter().sum::<f64>() / intake.len() as f64;
-            let floor = match profile.sex {
-                Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
-                Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
-            };
-            let very_low = ctx.setting_f64("very_low_intake", 800.0);
-            let days = intake.len();
-            // Very low subsumes low: one flag, the more serious one.
-            if mean < very_low {
-                low_intake = true;
-                output.push_flag(
-                    OutcomesFlag::VeryLowIntake.as_str(),
-                    FlagSeverity::Clinical,
-                    format!(
-                        "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                         days, below {very_low:.0} kcal a day. Eating this little is normally \
-                         done only under medical supervision; please review it with a licensed \
-                         clinician."
-                    ),
-                );
-            } else if mean < floor {
-                low_intake = true;
-                // Clinical like the very-low flag: intakes below the usual floors are for a
-                // licensed clinician to review (the report's cautions say so).
-                output.push_flag(
-                    OutcomesFlag::LowIntake.as_str(),
-                    FlagSeverity::Clinical,
-                    format!(
-                        "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                         days, below {floor:.0} kcal a day, a level usually not advised without \
-                         supervision. If the log is complete, consider discussing it with a \
-                         licensed clinician."
-                    ),
-                );
+            MilestoneRow {
+                threshold_percent: t,
+                threshold_weight_kg: threshold,
+                reached: reached.is_some(),
+                date_reached: reached,
             }
-        }
-
-        if let Some(b) = bmi1
-            && who_bmi_class(b) == BmiCategory::Underweight
-        {
-            output.push_flag(
-                OutcomesFlag::LowBmi.as_str(),
-                FlagSeverity::Clinical,
-                format!(
-                    "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
-                         normal range (WHO). Further weight loss should be reviewed with a \
-                         licensed clinician."
-                ),
-            );
-        }
-
-        let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
-        for l in &labs {
-            latest.insert(l.test, l);
-        }
-        for l in latest.values() {
-            let category = lab_category(l, profile.sex);
-            let (code, severity) = match category {
-                LabCategory::DiabetesRange => {
-                    (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical)
-                }
-                LabCategory::PrediabetesRange => {
-                    (OutcomesFlag::LabPrediabetesRange, FlagSeverity::Notice)
-                }
-                _ => continue,
-            };
-            let shown = match l.test {
-                LabTest::Hba1c => format!("{:.1} %", l.value),
-                _ => format!(
-                    "{:.1} mmol/L ({:.0} mg/dL)",
-                    l.value,
-                    l.value * GLUCOSE_MGDL_PER_MMOLL
-                ),
-            };
-            output.push_flag(
-                code.as_str(),
-                severity,
-                format!(
-                    "The most recent {} ({shown}, {}) is {} (ADA Standards of Care). \
-                     One result is not a diagnosis; please review it with a licensed clinician.",
-                    test_words(l.test),
-                    l.date,
-                    category.label(),
-                ),
-            );
-        }
-
-        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG)
-            && (fast.is_some() || low_intake)
-        {
-            let why = match (fast.is_some(), low_intake) {
-                (true, true) => "fast weight loss and low logged intake",
-                (true, false) => "fast weight loss",
-                _ => "low logged intake",
-            };
-            output.push_flag(
-                OutcomesFlag::MedicationReview.as_str(),
-                FlagSeverity::Clinical,
-                format!(
-                    "The profile notes a glucose-lowering medicine. With {why}, the dose that \
-                     suited before may now lower blood sugar too far. Please ask the clinician \
-                     who prescribes it whether the dose needs review; do not change it without \
-                     their advice."
-                ),
-            );
-        }
-
-        Ok(output)
+            .write()
+        })
+        .collect();
+    Table {
+        name: names::MILESTONES.into(),
+        label: MILESTONES_LABEL.into(),
+        columns: MilestoneRow::columns(),
+        rows,
     }
+}
+
+/// The lab results with their categories and converted values.
+fn labs_table(labs: &[&LabResult], sex: Sex) -> Table {
+    Table {
+        name: names::LABS.into(),
+        label: LABS_LABEL.into(),
+        columns: LabRow::columns(),
+        rows: labs
+            .iter()
+            .map(|l| {
+                let alt = lab_alt(l);
+                LabRow {
+                    date: l.date,
+                    test: l.test,
+                    value: l.value,
+                    unit: l.test.canonical_unit().into(),
+                    value_alt: alt.map(|a| a.0),
+                    unit_alt: alt.map(|a| a.1.into()),
+                    category: lab_category(l, sex),
+                    eag_mg_dl: (l.test == LabTest::Hba1c).then(|| eag_mg_dl(l.value)),
+                }
+                .write()
+            })
+            .collect(),
+    }
+}
+
+/// The `fast_loss` flag; returns whether it was raised.
+fn push_fast_loss_flag(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    levels: &[(NaiveDate, f64)],
+) -> bool {
+    let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
+    let span = ctx
+        .setting_f64("fast_loss_span_days", 21.0)
+        .round()
+        .max(1.0) as usize;
+    // Only spans that end in the reporting period: a fast spell months ago was flagged in
+    // that month's report and is not raised again every month after.
+    let daily: Vec<(NaiveDate, f64)> = fill_daily(levels)
+        .into_iter()
+        .filter(|(d, _)| *d <= ctx.period.to)
+        .collect();
+    let fast =
+        fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
+    let Some((fastest, (d0, d1, rate))) = fast else {
+        return false;
+    };
+    output.push_flag(
+        OutcomesFlag::FastLoss.as_str(),
+        FlagSeverity::Clinical,
+        format!(
+            "Weight came down faster than {} a week over {span} days in a row (most \
+             recently {d0} to {d1}: about {} a week; fastest about {} a week). Losing \
+             more than about 1 kg (2 lb) a week for several weeks is worth reviewing \
+             with a licensed clinician.",
+            kg_lb(limit),
+            kg_lb(rate),
+            kg_lb(fastest),
+        ),
+    );
+    true
+}
+
+/// The `very_low_intake` / `low_intake` flags (only the more serious one); returns whether one
+/// was raised.
+fn push_intake_flags(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    data: &ParticipantData,
+) -> bool {
+    let profile = &data.profile;
+    let intake: Vec<f64> = data
+        .intake
+        .iter()
+        .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
+        .map(|i| i.kcal)
+        .collect();
+    if intake.len() < MIN_INTAKE_DAYS {
+        return false;
+    }
+    let mean = intake.iter().sum::<f64>() / intake.len() as f64;
+    let floor = match profile.sex {
+        Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
+        Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
+    };
+    let very_low = ctx.setting_f64("very_low_intake", 800.0);
+    let days = intake.len();
+    // Very low subsumes low: one flag, the more serious one.
+    if mean < very_low {
+        output.push_flag(
+            OutcomesFlag::VeryLowIntake.as_str(),
+            FlagSeverity::Clinical,
+            format!(
+                "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
+                 days, below {very_low:.0} kcal a day. Eating this little is normally \
+                 done only under medical supervision; please review it with a licensed \
+                 clinician."
+            ),
+        );
+        true
+    } else if mean < floor {
+        // Clinical like the very-low flag: intakes below the usual floors are for a
+        // licensed clinician to review (the report's cautions say so).
+        output.push_flag(
+            OutcomesFlag::LowIntake.as_str(),
+            FlagSeverity::Clinical,
+            format!(
+                "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
+                 days, below {floor:.0} kcal a day, a level usually not advised without \
+                 supervision. If the log is complete, consider discussing it with a \
+                 licensed clinician."
+            ),
+        );
+        true
+    } else {
+        false
+    }
+}
+
+/// The `low_bmi` flag: current BMI in the WHO underweight class.
+fn push_low_bmi_flag(output: &mut ModuleOutput, bmi1: Option<f64>) {
+    if let Some(b) = bmi1
+        && who_bmi_class(b) == BmiCategory::Underweight
+    {
+        output.push_flag(
+            OutcomesFlag::LowBmi.as_str(),
+            FlagSeverity::Clinical,
+            format!(
+                "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
+                     normal range (WHO). Further weight loss should be reviewed with a \
+                     licensed clinician."
+            ),
+        );
+    }
+}
+
+/// The lab-range flags, judged on the latest value of each test.
+fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Sex) {
+    let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
+    for l in labs {
+        latest.insert(l.test, l);
+    }
+    for l in latest.values() {
+        let category = lab_category(l, sex);
+        let (code, severity) = match category {
+            LabCategory::DiabetesRange => (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical),
+            LabCategory::PrediabetesRange => {
+                (OutcomesFlag::LabPrediabetesRange, FlagSeverity::Notice)
+            }
+            _ => continue,
+        };
+        let shown = match l.test {
+            LabTest::Hba1c => format!("{:.1} %", l.value),
+            _ => format!(
+                "{:.1} mmol/L ({:.0} mg/dL)",
+                l.value,
+                l.value * GLUCOSE_MGDL_PER_MMOLL
+            ),
+        };
+        output.push_flag(
+            code.as_str(),
+            severity,
+            format!(
+                "The most recent {} ({shown}, {}) is {} (ADA Standards of Care). \
+                 One result is not a diagnosis; please review it with a licensed clinician.",
+                test_words(l.test),
+                l.date,
+                category.label(),
+            ),
+        );
+    }
+}
+
+/// The `medication_review` flag (raised by the caller only with fast loss or low intake).
+fn push_medication_flag(output: &mut ModuleOutput, fast: bool, low_intake: bool) {
+    let why = match (fast, low_intake) {
+        (true, true) => "fast weight loss and low logged intake",
+        (true, false) => "fast weight loss",
+        _ => "low logged intake",
+    };
+    output.push_flag(
+        OutcomesFlag::MedicationReview.as_str(),
+        FlagSeverity::Clinical,
+        format!(
+            "The profile notes a glucose-lowering medicine. With {why}, the dose that \
+             suited before may now lower blood sugar too far. Please ask the clinician \
+             who prescribes it whether the dose needs review; do not change it without \
+             their advice."
+        ),
+    );
 }
 
 #[cfg(test)]
