@@ -25,13 +25,17 @@
 
 use crate::dynamics::{BETA_AT, BETA_TEF, HallModel, LinearisedModel};
 use crate::equations::{RestingEquation, activity_kcal_net, jackson_2002_body_fat};
+use crate::view::{
+    BodyFatSource, EnergyFlag, OPTIONS_LABEL, OptionKind, OptionRow, PLATEAU_ASSESSMENT_LABEL,
+    PlateauCause, PlateauRow, WEEKLY_ENERGY_LABEL, WeekEnergyRow, names,
+};
 use baseline::{Baseline, baseline_requirement};
 use chrono::Datelike as _;
 use chrono::{Days, NaiveDate};
-use cohortpress_metric_api::view::ModuleView;
+use cohortpress_metric_api::view::{ModuleView, TableRow};
 use cohortpress_metric_api::{
-    Cell, Column, FlagSeverity, ModuleContext, ModuleError, ModuleOutput, ParticipantData, Point,
-    Series, Sex, Table,
+    FlagSeverity, ModuleContext, ModuleError, ModuleOutput, ParticipantData, Point, Series, Sex,
+    Table,
 };
 use cohortpress_metric_trend::view::{PeriodKind, TrendView};
 use std::collections::BTreeMap;
@@ -442,15 +446,14 @@ impl Person<'_> {
     }
 }
 
-fn num(x: Option<f64>) -> Cell {
-    match x {
-        Some(v) if v.is_finite() => Cell::Number(v),
-        _ => Cell::Empty,
+/// A table with the columns of row type `R` and no rows yet.
+fn empty_table<R: TableRow>(name: &str, label: &str) -> Table {
+    Table {
+        name: name.into(),
+        label: label.into(),
+        columns: R::columns(),
+        rows: vec![],
     }
-}
-
-fn text(s: impl Into<String>) -> Cell {
-    Cell::Text(s.into())
 }
 
 /// Computes the module's output (see the module docs for every definition): the person's
@@ -477,7 +480,7 @@ pub(crate) fn run(
         .unwrap_or_default();
     if trend_out.is_none() {
         out.push_flag(
-            "insufficient_data",
+            EnergyFlag::InsufficientData.as_str(),
             FlagSeverity::Info,
             "The weight trend was not available, so the energy estimates use a straight-line \
              fit of the weigh-ins where there were enough of them.",
@@ -485,7 +488,7 @@ pub(crate) fn run(
     }
     let Some((mut p, start)) = start(&s, data, trend, to, &mut out) else {
         out.push_flag(
-            "insufficient_data",
+            EnergyFlag::InsufficientData.as_str(),
             FlagSeverity::Info,
             "No weigh-ins up to the end of this period, so no energy estimates could be made.",
         );
@@ -503,7 +506,7 @@ pub(crate) fn run(
     let cur = current_state(ctx, &s, &p, &baseline, trend_out.is_none(), start.bw0);
     if cur.slope.is_none() && trend_out.is_some() {
         out.push_flag(
-            "insufficient_data",
+            EnergyFlag::InsufficientData.as_str(),
             FlagSeverity::Info,
             format!(
                 "The weight trend does not cover enough of the last {} days, so the intake \
@@ -534,8 +537,7 @@ struct Start {
     fm0: f64,
     rmr0: f64,
     bf0: f64,
-    bf_source: &'static str,
-    bf_label: &'static str,
+    bf_source: BodyFatSource,
 }
 
 /// Baseline weight (first trend level, else the first weigh-in up to `to`), body fat (profile or
@@ -557,16 +559,15 @@ fn start<'a>(
     let sex = data.profile.sex;
     let height_cm = data.profile.height.cm();
     let age0 = data.profile.age_on(data.profile.enrolled);
-    let (bf0, bf_source, bf_label) = match data.profile.body_fat_percent {
-        Some(bf) => (bf, "measured", "Measured (from the profile)"),
+    let (bf0, bf_source) = match data.profile.body_fat_percent {
+        Some(bf) => (bf, BodyFatSource::Measured),
         None => (
             jackson_2002_body_fat(
                 sex,
                 data.bmi(cohortpress_metric_api::units::Mass::from_kg(bw0)),
                 age0,
             ),
-            "jackson_2002",
-            "Estimated from BMI, age and sex (Jackson et al. 2002)",
+            BodyFatSource::Jackson2002,
         ),
     };
     // The model needs a positive fat mass (ln F/F₀); an estimate outside 3–70 % (e.g. Jackson's
@@ -576,7 +577,7 @@ fn start<'a>(
     let mut equation = s.equation;
     if equation.needs_lean_mass() && data.profile.body_fat_percent.is_none() {
         out.push_flag(
-            "equation_fallback",
+            EnergyFlag::EquationFallback.as_str(),
             FlagSeverity::Info,
             format!(
                 "The {} equation needs a measured body-fat percentage, which the profile does \
@@ -605,7 +606,6 @@ fn start<'a>(
             rmr0,
             bf0,
             bf_source,
-            bf_label,
         },
     ))
 }
@@ -747,19 +747,19 @@ fn current_state(
 fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
     let implied = cur.implied;
     out.push_scalar(
-        "rmr_kcal_per_day",
+        names::RMR_KCAL_PER_DAY,
         Some(cur.rmr),
         "kcal/d",
         &format!("Resting energy ({})", p.equation.label()),
     );
     out.push_scalar(
-        "activity_net_kcal_per_day",
+        names::ACTIVITY_NET_KCAL_PER_DAY,
         Some(cur.activity),
         "kcal/d",
         "Logged activity, net of resting ((MET − 1) × kg × h), added to the resting-based total",
     );
     out.push_scalar(
-        "tdee_kcal_per_day",
+        names::TDEE_KCAL_PER_DAY,
         Some(cur.tdee),
         "kcal/d",
         if implied.is_some() {
@@ -769,25 +769,25 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
         },
     );
     out.push_scalar(
-        "pal_estimate",
+        names::PAL_ESTIMATE,
         Some(p.model.pal),
         "",
         "Baseline activity level (TEE/RMR) after combining the prior with the food logs and the weight trend",
     );
     out.push_scalar(
-        "logged_intake_kcal_per_day",
+        names::LOGGED_INTAKE_KCAL_PER_DAY,
         cur.logged,
         "kcal/d",
         "Logged intake, mean of logged days",
     );
     out.push_scalar(
-        "logged_days",
+        names::LOGGED_DAYS,
         Some(cur.logged_days as f64),
         "d",
         "Days with a food log",
     );
     out.push_interval(
-        "implied_intake_kcal_per_day",
+        names::IMPLIED_INTAKE_KCAL_PER_DAY,
         implied.map(|b| b.value),
         implied.and_then(|b| b.lower),
         implied.and_then(|b| b.upper),
@@ -795,20 +795,20 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
         "Intake implied by the weight trend (Hall & Chow 2011), 95 % interval",
     );
     out.push_scalar(
-        "implied_intake_lower_kcal_per_day",
+        names::IMPLIED_INTAKE_LOWER_KCAL_PER_DAY,
         implied.and_then(|b| b.lower),
         "kcal/d",
         "Lower 95 % bound of the implied intake (advice is checked against it)",
     );
     out.push_scalar(
-        "implied_intake_upper_kcal_per_day",
+        names::IMPLIED_INTAKE_UPPER_KCAL_PER_DAY,
         implied.and_then(|b| b.upper),
         "kcal/d",
         "Upper 95 % bound of the implied intake",
     );
     let ur = cur.underreport;
     out.push_interval(
-        "underreporting_percent",
+        names::UNDERREPORTING_PERCENT,
         ur.map(|b| b.value),
         ur.and_then(|b| b.lower),
         ur.and_then(|b| b.upper),
@@ -818,7 +818,7 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
     );
     let gap = gap(cur);
     out.push_interval(
-        "intake_gap_kcal_per_day",
+        names::INTAKE_GAP_KCAL_PER_DAY,
         gap.map(|b| b.value),
         gap.and_then(|b| b.lower),
         gap.and_then(|b| b.upper),
@@ -827,7 +827,7 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
     );
     let balance = implied.map(|i| i.map(|x| x - cur.tdee));
     out.push_interval(
-        "energy_balance_kcal_per_day",
+        names::ENERGY_BALANCE_KCAL_PER_DAY,
         balance.map(|b| b.value),
         balance.and_then(|b| b.lower),
         balance.and_then(|b| b.upper),
@@ -970,7 +970,7 @@ fn forecast(
 fn push_forecast(out: &mut ModuleOutput, p: &Person<'_>, start: &Start, fc: Forecast) {
     let end = fc.end;
     out.push_interval(
-        "forecast_weight_at_end_kg",
+        names::FORECAST_WEIGHT_AT_END_KG,
         end.map(|b| b.value),
         end.and_then(|b| b.lower),
         end.and_then(|b| b.upper),
@@ -979,7 +979,7 @@ fn push_forecast(out: &mut ModuleOutput, p: &Person<'_>, start: &Start, fc: Fore
     );
     let steady = fc.steady;
     out.push_interval(
-        "steady_state_weight_kg",
+        names::STEADY_STATE_WEIGHT_KG,
         steady.map(|x| x.0),
         steady.and_then(|x| x.1),
         steady.and_then(|x| x.2),
@@ -987,15 +987,19 @@ fn push_forecast(out: &mut ModuleOutput, p: &Person<'_>, start: &Start, fc: Fore
         "Weight at which the model comes to rest with the implied intake held",
     );
     out.push_scalar(
-        "body_fat_percent_baseline",
+        names::BODY_FAT_PERCENT_BASELINE,
         Some(start.bf0),
         "%",
-        &format!("Baseline body fat: {}", start.bf_label),
+        &format!("Baseline body fat: {}", start.bf_source.label()),
     );
-    out.push_text("rmr_equation", p.equation.code(), p.equation.label());
-    out.push_text("body_fat_source", start.bf_source, start.bf_label);
+    out.push_text(names::RMR_EQUATION, p.equation.code(), p.equation.label());
+    out.push_text(
+        names::BODY_FAT_SOURCE,
+        start.bf_source.as_str(),
+        start.bf_source.label(),
+    );
     out.series.push(Series {
-        name: "forecast_weight".into(),
+        name: names::FORECAST_WEIGHT.into(),
         unit: "kg".into(),
         step: "daily".into(),
         label: "Forecast weight (model, implied intake held; band from the intake interval)".into(),
@@ -1012,7 +1016,7 @@ fn push_gap_flag(out: &mut ModuleOutput, cur: &Current) {
         g.lower.is_some_and(|x| x > GAP_FLAG_KCAL) || g.upper.is_some_and(|x| x < -GAP_FLAG_KCAL);
     if beyond {
         out.push_flag(
-            "logs_inconsistent_with_trend",
+            EnergyFlag::LogsInconsistentWithTrend.as_str(),
             FlagSeverity::Notice,
             format!(
                 "Logged intake averages {l:.0} kcal/d, while the weight trend implies about \
@@ -1069,60 +1073,49 @@ fn intake_movement_per_day(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate, w
 /// Outputs with every value missing (no weigh-ins at all), so the report still finds them.
 fn push_empty(out: &mut ModuleOutput, s: &Settings) {
     for (name, unit) in [
-        ("rmr_kcal_per_day", "kcal/d"),
-        ("activity_net_kcal_per_day", "kcal/d"),
-        ("tdee_kcal_per_day", "kcal/d"),
-        ("logged_intake_kcal_per_day", "kcal/d"),
-        ("logged_days", "d"),
-        ("implied_intake_kcal_per_day", "kcal/d"),
-        ("intake_gap_kcal_per_day", "kcal/d"),
-        ("energy_balance_kcal_per_day", "kcal/d"),
-        ("forecast_weight_at_end_kg", "kg"),
-        ("steady_state_weight_kg", "kg"),
-        ("body_fat_percent_baseline", "%"),
+        (names::RMR_KCAL_PER_DAY, "kcal/d"),
+        (names::ACTIVITY_NET_KCAL_PER_DAY, "kcal/d"),
+        (names::TDEE_KCAL_PER_DAY, "kcal/d"),
+        (names::LOGGED_INTAKE_KCAL_PER_DAY, "kcal/d"),
+        (names::LOGGED_DAYS, "d"),
+        (names::IMPLIED_INTAKE_KCAL_PER_DAY, "kcal/d"),
+        (names::INTAKE_GAP_KCAL_PER_DAY, "kcal/d"),
+        (names::ENERGY_BALANCE_KCAL_PER_DAY, "kcal/d"),
+        (names::FORECAST_WEIGHT_AT_END_KG, "kg"),
+        (names::STEADY_STATE_WEIGHT_KG, "kg"),
+        (names::BODY_FAT_PERCENT_BASELINE, "%"),
     ] {
         out.push_scalar(name, None, unit, "not available: no weigh-ins");
     }
-    out.push_text("rmr_equation", s.equation.code(), s.equation.label());
+    out.push_text(names::RMR_EQUATION, s.equation.code(), s.equation.label());
     out.push_text(
-        "body_fat_source",
-        "none",
-        "No weigh-ins, so no body-fat estimate",
+        names::BODY_FAT_SOURCE,
+        BodyFatSource::None.as_str(),
+        BodyFatSource::None.label(),
     );
     out.series.push(Series {
-        name: "forecast_weight".into(),
+        name: names::FORECAST_WEIGHT.into(),
         unit: "kg".into(),
         step: "daily".into(),
         label: "Forecast weight".into(),
         points: vec![],
     });
-    for t in [weekly_columns(), options_columns(), plateau_columns()] {
-        out.tables.push(t);
-    }
-}
-
-fn weekly_columns() -> Table {
-    Table {
-        name: "weekly_energy".into(),
-        label: "Energy by week".into(),
-        columns: vec![
-            Column::new("week_start", "", "Week starting"),
-            Column::new("expenditure_kcal_per_day", "kcal/d", "Expenditure"),
-            Column::new("logged_intake_kcal_per_day", "kcal/d", "Logged intake"),
-            Column::new(
-                "implied_intake_kcal_per_day",
-                "kcal/d",
-                "Intake implied by the weight trend",
-            ),
-        ],
-        rows: vec![],
-    }
+    out.tables.push(empty_table::<WeekEnergyRow>(
+        names::WEEKLY_ENERGY,
+        WEEKLY_ENERGY_LABEL,
+    ));
+    out.tables
+        .push(empty_table::<OptionRow>(names::OPTIONS, OPTIONS_LABEL));
+    out.tables.push(empty_table::<PlateauRow>(
+        names::PLATEAU_ASSESSMENT,
+        PLATEAU_ASSESSMENT_LABEL,
+    ));
 }
 
 /// One row per week from enrolment to the end of the period (weeks start on the enrolment
 /// weekday; the last week may be short).
 fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate) -> Table {
-    let mut t = weekly_columns();
+    let mut t = empty_table::<WeekEnergyRow>(names::WEEKLY_ENERGY, WEEKLY_ENERGY_LABEL);
     // Monday-based weeks, like the adherence module's, so a report shows one week grid; the
     // first week starts at enrolment and the last ends at the period end.
     let monday =
@@ -1142,35 +1135,18 @@ fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate
             }
             _ => None,
         };
-        t.rows.push(vec![
-            text(week_start.to_string()),
-            num(expenditure),
-            num(logged),
-            num(implied),
-        ]);
+        t.rows.push(
+            WeekEnergyRow {
+                week_start,
+                expenditure_kcal_per_day: expenditure,
+                logged_intake_kcal_per_day: logged,
+                implied_intake_kcal_per_day: implied,
+            }
+            .write(),
+        );
         week_start = day_after(week_start, 7);
     }
     t
-}
-
-fn options_columns() -> Table {
-    Table {
-        name: "options".into(),
-        label: "What it would take to reach the target rate".into(),
-        columns: vec![
-            Column::new("kind", "", "Option"),
-            Column::new("change_per_day", "", "Change per day"),
-            Column::new("unit", "", "Unit"),
-            Column::new(
-                "resulting_intake_kcal_per_day",
-                "kcal/d",
-                "Resulting intake",
-            ),
-            Column::new("feasible", "", "Within safe limits"),
-            Column::new("reason", "", "Why"),
-        ],
-        rows: vec![],
-    }
 }
 
 /// The `options` table. With s the current slope and s* = −target/7 (kg/d):
@@ -1191,17 +1167,24 @@ fn options_table(
     slope: Option<Band>,
     implied: Option<Band>,
 ) -> Table {
-    let mut t = options_columns();
+    let mut t = empty_table::<OptionRow>(names::OPTIONS, OPTIONS_LABEL);
     let (Some(sl), Some(imp)) = (slope, implied) else {
-        for (kind, unit) in [("intake", "kcal/d"), ("walking", "min/d")] {
-            t.rows.push(vec![
-                text(kind),
-                Cell::Empty,
-                text(unit),
-                Cell::Empty,
-                text("no"),
-                text("Not enough recent weigh-ins to estimate the current energy balance."),
-            ]);
+        for (kind, unit) in [
+            (OptionKind::Intake, "kcal/d"),
+            (OptionKind::Walking, "min/d"),
+        ] {
+            t.rows.push(
+                OptionRow {
+                    kind,
+                    change_per_day: None,
+                    unit: unit.into(),
+                    resulting_intake_kcal_per_day: None,
+                    feasible: false,
+                    reason: "Not enough recent weigh-ins to estimate the current energy balance."
+                        .into(),
+                }
+                .write(),
+            );
         }
         return t;
     };
@@ -1227,10 +1210,10 @@ fn options_table(
     let new_intake_low = imp.lower.unwrap_or(imp.value) + d_ei;
     let floor = p.floor(s);
     let (feasible, reason) = if too_fast {
-        ("no", fast_reason.clone())
+        (false, fast_reason.clone())
     } else if new_intake < floor {
         (
-            "no",
+            false,
             format!(
                 "It would bring intake to about {new_intake:.0} kcal a day, below {floor:.0} kcal \
                  a day; intakes that low need a clinician's supervision."
@@ -1238,7 +1221,7 @@ fn options_table(
         )
     } else if new_intake_low < floor {
         (
-            "no",
+            false,
             format!(
                 "It would bring intake to about {new_intake:.0} kcal a day, but possibly to \
                  {new_intake_low:.0} (the low end of the estimate), below {floor:.0} kcal a day; \
@@ -1246,10 +1229,10 @@ fn options_table(
             ),
         )
     } else if already {
-        ("yes", already_reason.to_string())
+        (true, already_reason.to_string())
     } else {
         (
-            "yes",
+            true,
             format!(
                 "Eating about {:.0} kcal/d less than now would start a loss of {:.2} kg/week at \
                  the current weight; the rate then slows as weight falls.",
@@ -1257,14 +1240,17 @@ fn options_table(
             ),
         )
     };
-    t.rows.push(vec![
-        text("intake"),
-        num(Some(d_ei)),
-        text("kcal/d"),
-        num(Some(new_intake)),
-        text(feasible),
-        text(reason),
-    ]);
+    t.rows.push(
+        OptionRow {
+            kind: OptionKind::Intake,
+            change_per_day: Some(d_ei),
+            unit: "kcal/d".into(),
+            resulting_intake_kcal_per_day: Some(new_intake),
+            feasible,
+            reason,
+        }
+        .write(),
+    );
 
     // Walking option.
     let kcal_per_min = (s.walking_met - 1.0).max(0.0) * bw / 60.0;
@@ -1279,20 +1265,20 @@ fn options_table(
         f64::INFINITY
     };
     let (feasible, reason) = if too_fast {
-        ("no", fast_reason)
+        (false, fast_reason)
     } else if minutes > MAX_WALK_MIN {
         (
-            "no",
+            false,
             format!(
                 "It would take about {minutes:.0} minutes of walking a day, more than \
                  {MAX_WALK_MIN:.0}; combine a shorter walk with a smaller change in intake."
             ),
         )
     } else if already {
-        ("yes", already_reason.to_string())
+        (true, already_reason.to_string())
     } else {
         (
-            "yes",
+            true,
             format!(
                 "About {minutes:.0} extra minutes a day of walking at {:.1} MET (about 3 mph, \
                  Compendium 2011 code 17190) adds {net_needed:.0} kcal/d net of resting.",
@@ -1300,14 +1286,17 @@ fn options_table(
             ),
         )
     };
-    t.rows.push(vec![
-        text("walking"),
-        num(Some(minutes)),
-        text("min/d"),
-        num(Some(imp.value)),
-        text(feasible),
-        text(reason),
-    ]);
+    t.rows.push(
+        OptionRow {
+            kind: OptionKind::Walking,
+            change_per_day: Some(minutes),
+            unit: "min/d".into(),
+            resulting_intake_kcal_per_day: Some(imp.value),
+            feasible,
+            reason,
+        }
+        .write(),
+    );
 
     // When eating less alone would go below the floor, the practical answer is both: eat less
     // down to the floor and walk off the rest (same model terms as the two rows above).
@@ -1318,7 +1307,7 @@ fn options_table(
         let rest_minutes = (1.0 - BETA) * rest_kcal / kcal_per_min;
         let (feasible, reason) = if rest_minutes > MAX_WALK_MIN {
             (
-                "no",
+                false,
                 format!(
                     "Even with intake at {floor:.0} kcal a day it would take about \
                      {rest_minutes:.0} minutes of walking a day; a slower target rate is more \
@@ -1327,7 +1316,7 @@ fn options_table(
             )
         } else {
             (
-                "yes",
+                true,
                 format!(
                     "Eating about {cut:.0} kcal a day less (down to {floor:.0}) and walking about \
                      {rest_minutes:.0} minutes more a day together restore a loss of {:.2} \
@@ -1336,57 +1325,19 @@ fn options_table(
                 ),
             )
         };
-        t.rows.push(vec![
-            text("combined"),
-            num(Some(rest_minutes)),
-            text("min/d"),
-            num(Some(imp.value - cut)),
-            text(feasible),
-            text(reason),
-        ]);
+        t.rows.push(
+            OptionRow {
+                kind: OptionKind::Combined,
+                change_per_day: Some(rest_minutes),
+                unit: "min/d".into(),
+                resulting_intake_kcal_per_day: Some(imp.value - cut),
+                feasible,
+                reason,
+            }
+            .write(),
+        );
     }
     t
-}
-
-fn plateau_columns() -> Table {
-    Table {
-        name: "plateau_assessment".into(),
-        label: "Plateau assessment".into(),
-        columns: vec![
-            Column::new("start", "", "From"),
-            Column::new("end", "", "To"),
-            Column::new("observed_slope_kg_per_week", "kg/wk", "Observed trend"),
-            Column::new("expected_slope_kg_per_week", "kg/wk", "Model expects"),
-            Column::new(
-                "implied_intake_before_kcal_per_day",
-                "kcal/d",
-                "Implied intake before",
-            ),
-            Column::new(
-                "implied_intake_during_kcal_per_day",
-                "kcal/d",
-                "Implied intake during",
-            ),
-            Column::new("classification", "", "Reading"),
-            Column::new("evidence", "", "Evidence"),
-            Column::new(
-                "intake_change_kcal_per_day",
-                "kcal/d",
-                "Change in implied intake, early to plateau",
-            ),
-            Column::new(
-                "intake_change_lower_kcal_per_day",
-                "kcal/d",
-                "Change, lower 95 %",
-            ),
-            Column::new(
-                "intake_change_upper_kcal_per_day",
-                "kcal/d",
-                "Change, upper 95 %",
-            ),
-        ],
-        rows: vec![],
-    }
 }
 
 /// The `plateau_assessment` table: one row per `plateau` period of the trend output.
@@ -1409,7 +1360,7 @@ fn plateau_columns() -> Table {
 ///   intake predicts the stall); `undetermined` otherwise (neither shown), or when the early
 ///   window is too short (< 14 days).
 fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
-    let mut t = plateau_columns();
+    let mut t = empty_table::<PlateauRow>(names::PLATEAU_ASSESSMENT, PLATEAU_ASSESSMENT_LABEL);
     let sd_of = |b: &Band| match (b.lower, b.upper) {
         (Some(l), Some(u)) => (u - l).abs() / (2.0 * Z_95),
         _ => 0.0,
@@ -1501,9 +1452,11 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
         let expected_wk = expected.map(|x| x.0 * 7.0);
         let band_half = bw_start.unwrap_or(p.model.bw0) * PLATEAU_BAND_FRACTION_PER_WEEK / 7.0;
         let classification = match (change, expected) {
-            (Some((c, lo, _)), _) if lo > 0.0 && c >= s.drift_threshold => "intake_drift",
-            (Some(_), Some((ex, _))) if ex >= -band_half => "expected_slowdown",
-            _ => "undetermined",
+            (Some((c, lo, _)), _) if lo > 0.0 && c >= s.drift_threshold => {
+                PlateauCause::IntakeDrift
+            }
+            (Some(_), Some((ex, _))) if ex >= -band_half => PlateauCause::ExpectedSlowdown,
+            _ => PlateauCause::Undetermined,
         };
         let f0 = |x: Option<f64>| x.map_or("n/a".to_string(), |v| format!("{v:.0}"));
         let f2 = |x: Option<f64>| x.map_or("n/a".to_string(), |v| format!("{v:+.2}"));
@@ -1521,19 +1474,22 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
             band_half * 7.0,
             f2(observed_wk),
         );
-        t.rows.push(vec![
-            text(per.start.to_string()),
-            text(per.end.to_string()),
-            num(observed_wk),
-            num(expected_wk),
-            num(early.map(|e| e.0)),
-            num(during.map(|d| d.0)),
-            text(classification),
-            text(evidence),
-            num(change.map(|c| c.0)),
-            num(change.map(|c| c.1)),
-            num(change.map(|c| c.2)),
-        ]);
+        t.rows.push(
+            PlateauRow {
+                start: per.start,
+                end: per.end,
+                observed_slope_kg_per_week: observed_wk,
+                expected_slope_kg_per_week: expected_wk,
+                implied_intake_before_kcal_per_day: early.map(|e| e.0),
+                implied_intake_during_kcal_per_day: during.map(|d| d.0),
+                classification,
+                evidence,
+                intake_change_kcal_per_day: change.map(|c| c.0),
+                intake_change_lower_kcal_per_day: change.map(|c| c.1),
+                intake_change_upper_kcal_per_day: change.map(|c| c.2),
+            }
+            .write(),
+        );
     }
     t
 }

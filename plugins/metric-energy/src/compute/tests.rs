@@ -6,8 +6,8 @@ use crate::EnergyModule;
 use crate::equations::mifflin_st_jeor;
 use cohortpress_metric_api::units::{Length, Mass};
 use cohortpress_metric_api::{
-    ActivityEntry, IntakeDay, MetricModule, Period, Profile, ProgramInfo, Targets, UnitSystem,
-    WeighIn,
+    ActivityEntry, Cell, IntakeDay, MetricModule, Period, Profile, ProgramInfo, Targets,
+    UnitSystem, WeighIn,
 };
 use cohortpress_metric_trend::view::PeriodRow;
 
