@@ -246,10 +246,8 @@ pub fn plan_from_args(args: &RunArgs, today: NaiveDate) -> Result<RunPlan, PlanE
         return Err(usage("--jobs must be at least 1".into()));
     }
     let key = run_key(&program, &modules, period, as_of, &formats)?;
-    let state_dir = args
-        .state
-        .clone()
-        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
+    let state_dir =
+        group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir).map_err(usage)?;
     Ok(RunPlan {
         program,
         modules,
@@ -302,10 +300,8 @@ pub fn plan_for_merge(
         None => (program.root.join(&program.def.report.out), "report.out"),
     };
     let key = run_key(&program, &modules, period, as_of, &formats)?;
-    let state_dir = args
-        .state
-        .clone()
-        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
+    let state_dir =
+        group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir).map_err(usage)?;
     Ok(RunPlan {
         program,
         modules,

@@ -9,6 +9,7 @@ mod fhir;
 mod guidance;
 mod harness;
 mod hostile;
+mod ledger;
 mod operation;
 mod reports;
 mod sample_program;
