@@ -1230,8 +1230,8 @@ fn link_nested_counts<'a>(
     min: u32,
 ) {
     let words = people.div_ceil(64).max(1);
-    let mut cells: Vec<(CellId, Vec<u64>, u64)> = Vec::new();
-    for d in drafts {
+    let mut cells: Vec<(usize, CellId, Vec<u64>, u64)> = Vec::new();
+    for (section, d) in drafts.enumerate() {
         let raw = d.raw.as_ref().expect("shown sections have figures");
         for (&k, &c) in &d.cells {
             // The flags cell counts flags, not people.
@@ -1242,11 +1242,11 @@ fn link_nested_counts<'a>(
             for &i in raw.members.get(&k).into_iter().flatten() {
                 bits[i / 64] |= 1 << (i % 64);
             }
-            cells.push((c, bits, raw.count(k)));
+            cells.push((section, c, bits, raw.count(k)));
         }
     }
     let mut by_set: HashMap<Vec<u64>, CellId> = HashMap::new();
-    for (c, bits, _) in &cells {
+    for (_, c, bits, _) in &cells {
         by_set.entry(bits.clone()).or_insert(*c);
     }
     let mut known: BTreeSet<(CellId, Vec<CellId>)> = table
@@ -1259,8 +1259,10 @@ fn link_nested_counts<'a>(
         })
         .collect();
     let min = u64::from(min);
-    for (a, abits, an) in &cells {
-        for (b, bbits, bn) in &cells {
+    for (sa, a, abits, an) in &cells {
+        // Within a section: a site's count against the program's differs by the other
+        // sites' people, which the program = Σ sites relations already protect.
+        for (_, b, bbits, bn) in cells.iter().filter(|c| c.0 == *sa) {
             let Some(d) = an.checked_sub(*bn) else {
                 continue;
             };
