@@ -452,6 +452,9 @@ pub fn run_check_with(
     }
     match write_report_with(&report, opts, out) {
         Ok(()) => report.exit_code(),
+        // The reader stopped early (`cohortpress check … | head`): what was checked is unchanged,
+        // so the code says what the inputs are, as other Unix filters do on a closed pipe.
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => report.exit_code(),
         Err(_) => exit_code::OUTPUT_FAILED,
     }
 }

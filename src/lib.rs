@@ -1,6 +1,6 @@
 //! cohortpress: monthly reports for group weight-management programs.
 //!
-//! The pipeline, one phase per module; only [`runner`] touches the output folder:
+//! The pipeline, one phase per module; only [`run`] touches the output folder:
 //!
 //! 1. [`program`] parses and checks `program.yaml` → [`program::Program`].
 //! 2. [`participant`] discovers participant folders and loads and checks each one's
@@ -11,14 +11,14 @@
 //!    small-cell suppression.
 //! 5. [`report`] builds the report model and renders it to HTML (handlebars templates) and PDF
 //!    (through [`render`]), returning bytes.
-//! 6. [`runner`] orchestrates a run; [`output`] writes every output atomically, [`tidy`] the
+//! 6. [`run`] orchestrates a run; [`output`] writes every output atomically, [`tidy`] the
 //!    metrics for analysis.
 
 #![forbid(unsafe_code)]
 
 pub mod activities;
 pub mod check;
-pub mod cli;
+pub mod cmd;
 pub mod csv_out;
 pub mod demo;
 pub mod diag;
@@ -28,13 +28,11 @@ pub mod import;
 pub mod limits;
 pub mod modules;
 pub mod output;
-pub mod partial;
 pub mod participant;
 pub mod program;
 pub mod progress;
 pub mod render;
 pub mod report;
-pub mod runner;
-pub mod shard;
+pub mod run;
 pub mod tidy;
 pub mod yaml;

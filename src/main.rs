@@ -2,7 +2,7 @@
 //! outcome to a documented exit code.
 
 use clap::Parser;
-use cohortpress::cli::{Cli, Command, LogFormat, TemplatesAction};
+use cohortpress::cmd::cli::{Cli, Command, LogFormat, TemplatesAction};
 use cohortpress::exit_code;
 use std::process::ExitCode;
 
@@ -53,23 +53,25 @@ fn dispatch(cli: Cli) -> i32 {
             let as_of = as_of.unwrap_or_else(today);
             let stdout = std::io::stdout();
             let opts = cohortpress::check::CheckOptions {
-                json: format == cohortpress::cli::CheckFormat::Json,
+                json: format == cohortpress::cmd::cli::CheckFormat::Json,
                 verbose,
             };
             cohortpress::check::run_check_with(&program, as_of, &opts, &mut stdout.lock())
         }
         Command::Run(args) => {
             init_logging(args.quiet, args.log_format);
-            cohortpress::runner::run_command(&args, today())
+            cohortpress::run::execute::run_command(&args, today())
         }
         Command::Merge(args) => {
             init_logging(args.quiet, args.log_format);
-            cohortpress::shard::merge_command(&args)
+            cohortpress::run::shard::merge_command(&args)
         }
         Command::Import {
-            format: cohortpress::cli::ImportFormat::Fhir { files, out, ids },
+            format: cohortpress::cmd::cli::ImportFormat::Fhir { files, out, ids },
         } => cohortpress::import::fhir::import_command(&files, &out, ids.as_deref()),
-        Command::Modules { program } => cohortpress::runner::modules_command(program.as_deref()),
+        Command::Modules { program } => {
+            cohortpress::run::execute::modules_command(program.as_deref())
+        }
         Command::Templates {
             action: TemplatesAction::Dump { dir },
         } => cohortpress::report::templates::dump_command(&dir),

@@ -16,7 +16,7 @@
 //! by a failed run is removed when the [`Staging`] value is dropped.
 
 use crate::participant::InputFile;
-use crate::runner::{RunPlan, RunSummary};
+use crate::run::execute::{RunPlan, RunSummary};
 use serde::Serialize;
 use std::fs::{self, File};
 use std::io::Write;

@@ -5,8 +5,8 @@ use crate::diag::Diagnostic;
 use crate::group::GroupReport;
 use crate::modules::ModuleResults;
 use crate::output::Staging;
-use crate::partial::TidyRecord;
-use crate::runner::RunPlan;
+use crate::run::execute::RunPlan;
+use crate::run::partial::TidyRecord;
 use cohortpress_metric_api::{Flag, ParticipantData, Scalar, TextValue};
 use rayon::prelude::*;
 use serde::Serialize;
@@ -230,9 +230,9 @@ pub fn render(
             .par_iter()
             .map(|id| {
                 let bytes = staging
-                    .read(&crate::partial::cache_path(id))
+                    .read(&crate::run::partial::cache_path(id))
                     .map_err(|e| e.to_string())?;
-                let rec = crate::partial::ParticipantRecord::from_bytes(&bytes)
+                let rec = crate::run::partial::ParticipantRecord::from_bytes(&bytes)
                     .ok_or_else(|| format!("cache/{id}.json: unreadable partial result"))?;
                 Ok(rec.tidy.map(TidyRecord::into_tidy))
             })

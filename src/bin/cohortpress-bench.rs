@@ -32,13 +32,13 @@ use std::time::{Duration, Instant};
 use chrono::NaiveDate;
 use clap::Parser;
 use cohortpress::check;
-use cohortpress::cli::{Cli, Command as CliCommand};
+use cohortpress::cmd::cli::{Cli, Command as CliCommand};
 use cohortpress::demo::{self, DemoOptions};
 use cohortpress::group::{self, GroupOptions};
 use cohortpress::modules;
 use cohortpress::program::Format;
 use cohortpress::report;
-use cohortpress::runner::{self, RunPlan, RunSummary};
+use cohortpress::run::execute::{self, RunPlan, RunSummary};
 use cohortpress_metric_api::ParticipantData;
 
 /// Measure cohortpress: loading, metric modules, rendering and the end-to-end run.
@@ -459,7 +459,7 @@ fn bench_size(
             let results = plan
                 .modules
                 .run(&plan.program.info, plan.period, plan.as_of, d);
-            runner::summary_row(&plan, d, &results)
+            execute::summary_row(&plan, d, &results)
         })
         .collect();
     let opts = GroupOptions {
@@ -585,7 +585,7 @@ fn plan_for(program: &Path, out: &Path) -> RunPlan {
         die("expected the run command")
     };
     let today: NaiveDate = AS_OF.parse().expect("valid date");
-    runner::plan_from_args(&run_args, today).unwrap_or_else(|(_, d)| die(&format!("plan: {d:?}")))
+    execute::plan_from_args(&run_args, today).unwrap_or_else(|(_, d)| die(&format!("plan: {d:?}")))
 }
 
 struct EndToEnd {

@@ -126,11 +126,20 @@ impl Chart {
         }
     }
 
+    /// Replaces the text alternative (a report's figure caption describes the chart in place).
+    pub fn set_alt_text(&mut self, alt: &str) {
+        match self {
+            Chart::Line(c) => c.alt_text = alt.to_string(),
+            Chart::Bars(c) => c.alt_text = alt.to_string(),
+        }
+    }
+
     /// The drawing size (in chart pixels) the PDF renderer uses; it scales this to the page.
+    /// A line chart is its plot plus the strip below that holds its legend.
     pub(crate) fn pdf_canvas(&self) -> (u32, u32) {
         match self {
-            Chart::Line(_) => (720, 340),
-            Chart::Bars(_) => (720, 300),
+            Chart::Line(_) => (PDF_W, PDF_PLOT_H + legend_strip(self, PDF_W)),
+            Chart::Bars(_) => (PDF_W, 300 + legend_strip(self, PDF_W)),
         }
     }
 }
@@ -155,12 +164,10 @@ const LINE_COLOURS: [RGBColor; 6] = [
     OI_ORANGE,
     OI_SKY,
 ];
-/// Fills of the interval bands in the order they are given, so two bands never share a colour.
-const BAND_COLOURS: [(RGBColor, f64); 3] = [(OI_SKY, 0.25), (OI_ORANGE, 0.22), (OI_GREEN, 0.18)];
-/// Text drawn in the vermillion of a reference line: Okabe–Ito vermillion darkened to a
-/// contrast of 5.8:1 on white (the palette's own #D55E00 gives 3.9:1, below the 4.5:1 WCAG 2.1
-/// asks of text, success criterion 1.4.3).
-const VERMILLION_TEXT: RGBColor = RGBColor(0xA8, 0x4A, 0x00);
+/// Fills of the interval bands in the order they are given, so two bands never share a colour,
+/// and in hues apart from the shaded periods (plateau yellow, regain vermillion, forecast grey):
+/// a forecast band once took orange and could not be told from a regain period beside it.
+const BAND_COLOURS: [(RGBColor, f64); 3] = [(OI_SKY, 0.25), (OI_GREEN, 0.22), (OI_PURPLE, 0.22)];
 const INK: RGBColor = RGBColor(0x22, 0x22, 0x22);
 const MUTED: RGBColor = RGBColor(0x5F, 0x5F, 0x5F);
 const GRID: RGBColor = RGBColor(0xE3, 0xE3, 0xE3);
@@ -178,8 +185,8 @@ const LABEL_SIZE: f64 = 14.0;
 
 fn span_fill(kind: SpanKind) -> RGBAColor {
     match kind {
-        SpanKind::Plateau => OI_YELLOW.mix(0.30),
-        SpanKind::Regain => OI_VERMILLION.mix(0.13),
+        SpanKind::Plateau => OI_YELLOW.mix(0.35),
+        SpanKind::Regain => OI_VERMILLION.mix(0.18),
         SpanKind::Forecast => RGBColor(0x80, 0x80, 0x80).mix(0.12),
         SpanKind::Highlight => OI_SKY.mix(0.18),
     }
@@ -301,31 +308,43 @@ impl DrawingBackend for MeasuredSvg<'_> {
 ///
 /// The output has no scripts and no external references, all text is escaped, and the same
 /// chart always gives the same string. A `<title>` and `aria-label` carry the alt text.
-pub fn to_svg(chart: &Chart, width: u32, height: u32) -> String {
-    svg_string(chart, width, height, Legend::InPlot)
+///
+/// The plot is `plot_height` tall; a line chart's legend goes in a strip below it, where it
+/// cannot cover data, so the SVG is as tall as plot and legend together.
+pub fn to_svg(chart: &Chart, width: u32, plot_height: u32) -> String {
+    let strip = legend_strip(chart, width);
+    svg_string(chart, width, plot_height + strip, strip)
 }
 
-/// Draws `chart` as an `<svg>` for narrow screens: `width` wide, the plot `plot_height` tall and
-/// the legend (if any) in a strip below the plot, where it cannot cover data. The SVG is as
-/// tall as plot and legend together.
-pub fn to_svg_narrow(chart: &Chart, width: u32, plot_height: u32) -> String {
-    let strip = match chart {
-        Chart::Line(c) => legend_strip_height(c),
+/// Height of the legend strip below `chart` drawn `width` pixels wide: a line chart's entries,
+/// or a bar chart's target line (0 when there is nothing to name).
+fn legend_strip(chart: &Chart, width: u32) -> u32 {
+    match chart {
+        Chart::Line(c) => legend_strip_height(c, width),
+        Chart::Bars(c) if c.target.is_some_and(f64::is_finite) => {
+            LEGEND_LINE_PX + 2 * LEGEND_MARGIN + 8
+        }
         Chart::Bars(_) => 0,
-    };
-    svg_string(chart, width, plot_height + strip, Legend::Below(strip))
+    }
 }
 
-/// Where a line chart's legend goes.
-#[derive(Clone, Copy, PartialEq, Debug)]
-enum Legend {
-    /// In the plot corner that covers the least data.
-    InPlot,
-    /// In a strip of this many pixels under the x axis labels.
-    Below(u32),
+/// Draws `chart` as an `<svg>` for narrow screens: the same as [`to_svg`], whose legend strip
+/// takes two columns instead of three at a phone's width.
+pub fn to_svg_narrow(chart: &Chart, width: u32, plot_height: u32) -> String {
+    to_svg(chart, width, plot_height)
 }
 
-/// Legend entries of a line chart: labelled lines and bands, and each distinct span label.
+/// The PDF's chart drawing: width and plot height in chart pixels (scaled to the page).
+const PDF_W: u32 = 720;
+const PDF_PLOT_H: u32 = 300;
+
+/// Columns of the legend strip for a drawing `width` pixels wide.
+fn legend_columns(width: u32) -> usize {
+    if width >= 600 { 3 } else { 2 }
+}
+
+/// Legend entries of a line chart: labelled lines, bands and reference lines, and each distinct
+/// span label.
 fn legend_entries(c: &LineChart) -> usize {
     let spans: std::collections::BTreeSet<&str> = c
         .spans
@@ -335,14 +354,18 @@ fn legend_entries(c: &LineChart) -> usize {
         .collect();
     c.lines.iter().filter(|l| !l.label.is_empty()).count()
         + c.bands.iter().filter(|b| !b.label.is_empty()).count()
+        + c.hlines
+            .iter()
+            .filter(|h| !h.label.is_empty() && h.y.is_finite())
+            .count()
         + spans.len()
 }
 
-/// Height of the strip under a narrow chart that holds its legend in two columns.
-fn legend_strip_height(c: &LineChart) -> u32 {
+/// Height of the strip under a chart `width` pixels wide that holds its legend.
+fn legend_strip_height(c: &LineChart, width: u32) -> u32 {
     match legend_entries(c) {
         0 => 0,
-        n => n.div_ceil(2) as u32 * LEGEND_LINE_PX + 2 * LEGEND_MARGIN + 8,
+        n => n.div_ceil(legend_columns(width)) as u32 * LEGEND_LINE_PX + 2 * LEGEND_MARGIN + 8,
     }
 }
 
@@ -352,7 +375,7 @@ const LEGEND_MARGIN: u32 = 6;
 /// Left edge of the legend strip's first column, in pixels.
 const LEGEND_X: i32 = 12;
 
-fn svg_string(chart: &Chart, width: u32, height: u32, legend: Legend) -> String {
+fn svg_string(chart: &Chart, width: u32, height: u32, legend: u32) -> String {
     let (width, height) = (width.max(80), height.max(60));
     let mut body = String::with_capacity(16 * 1024);
     {
@@ -406,23 +429,24 @@ fn escape_xml_into(out: &mut String, s: &str) {
 
 type DrawResult<DB> = Result<(), DrawingAreaErrorKind<<DB as DrawingBackend>::ErrorType>>;
 
-/// Draws `chart` onto `root` (any plotters backend).
+/// Draws `chart` onto `root` (any plotters backend) at the size [`Chart::pdf_canvas`] gives.
 pub(crate) fn draw<DB: DrawingBackend>(
     chart: &Chart,
     root: &DrawingArea<DB, Shift>,
 ) -> DrawResult<DB> {
-    draw_with(chart, root, Legend::InPlot)
+    draw_with(chart, root, legend_strip(chart, root.dim_in_pixel().0))
 }
 
+/// Draws `chart`; a line chart's legend goes in the bottom `legend` pixels.
 fn draw_with<DB: DrawingBackend>(
     chart: &Chart,
     root: &DrawingArea<DB, Shift>,
-    legend: Legend,
+    legend: u32,
 ) -> DrawResult<DB> {
     root.fill(&WHITE)?;
     match chart {
         Chart::Line(c) => draw_line_chart(c, root, legend),
-        Chart::Bars(c) => draw_bar_chart(c, root),
+        Chart::Bars(c) => draw_bar_chart(c, root, legend),
     }
 }
 
@@ -479,7 +503,7 @@ fn padded(lo: f64, hi: f64) -> (f64, f64) {
 fn draw_line_chart<DB: DrawingBackend>(
     c: &LineChart,
     root: &DrawingArea<DB, Shift>,
-    legend: Legend,
+    legend: u32,
 ) -> DrawResult<DB> {
     // Dates from plotted data decide the x range; spans are clipped to it (a forecast span
     // alone, with no data, still gives a range).
@@ -544,13 +568,12 @@ fn draw_line_chart<DB: DrawingBackend>(
     let y_fmt = |v: &f64| fmt_num(*v, 2);
 
     // A legend below the plot gets its own strip at the bottom of the drawing.
-    let (plot_area, strip) = match legend {
-        Legend::Below(px) if px > 0 => {
-            let (_, h) = root.dim_in_pixel();
-            let (top, bottom) = root.split_vertically(h.saturating_sub(px));
-            (top, Some(bottom))
-        }
-        _ => (root.clone(), None),
+    let (plot_area, strip) = if legend > 0 {
+        let (_, h) = root.dim_in_pixel();
+        let (top, bottom) = root.split_vertically(h.saturating_sub(legend));
+        (top, Some(bottom))
+    } else {
+        (root.clone(), None)
     };
     let mut swatches: Vec<(String, Swatch)> = Vec::new();
     let mut chart = ChartBuilder::on(&plot_area)
@@ -585,15 +608,12 @@ fn draw_line_chart<DB: DrawingBackend>(
             continue;
         }
         let fill = span_fill(s.kind);
-        let series = chart.draw_series(std::iter::once(Rectangle::new(
+        chart.draw_series(std::iter::once(Rectangle::new(
             [(from, y1), (to, y0)],
             fill.filled(),
         )))?;
         if !s.label.is_empty() && labelled.insert(s.label.clone()) {
             swatches.push((s.label.clone(), Swatch::Fill(fill)));
-            series
-                .label(s.label.as_str())
-                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 18, y + 6)], fill.filled()));
         }
     }
 
@@ -615,12 +635,9 @@ fn draw_line_chart<DB: DrawingBackend>(
             .collect();
         let (colour, alpha) = BAND_COLOURS[i % BAND_COLOURS.len()];
         let fill = colour.mix(alpha);
-        let series = chart.draw_series(std::iter::once(Polygon::new(outline, fill.filled())))?;
+        chart.draw_series(std::iter::once(Polygon::new(outline, fill.filled())))?;
         if !b.label.is_empty() {
             swatches.push((b.label.clone(), Swatch::Fill(fill)));
-            series
-                .label(b.label.as_str())
-                .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 18, y + 6)], fill.filled()));
         }
     }
 
@@ -632,15 +649,10 @@ fn draw_line_chart<DB: DrawingBackend>(
             4u32,
             style,
         ))?;
+        // Named in the legend rather than beside the line, where a trend crossing the
+        // reference line would run through its label.
         if !h.label.is_empty() {
-            chart.draw_series(std::iter::once(
-                EmptyElement::at((x1, h.y))
-                    + Text::new(
-                        h.label.clone(),
-                        (-4, -3),
-                        text(LABEL_SIZE - 1.0, MUTED).pos(Pos::new(HPos::Right, VPos::Bottom)),
-                    ),
-            ))?;
+            swatches.push((h.label.clone(), Swatch::Dashed(style)));
         }
     }
 
@@ -654,7 +666,7 @@ fn draw_line_chart<DB: DrawingBackend>(
             .collect();
         pts.sort_by_key(|p| p.0);
         let line_style = colour.stroke_width(2);
-        let series = match l.style {
+        match l.style {
             LineStyle::Dots => chart.draw_series(
                 pts.iter()
                     .map(|&p| Circle::new(p, 3, colour.mix(0.8).filled())),
@@ -681,90 +693,12 @@ fn draw_line_chart<DB: DrawingBackend>(
                     LineStyle::Dashed => Swatch::Dashed(line_style),
                 },
             ));
-            let series = series.label(l.label.as_str());
-            match l.style {
-                LineStyle::Dots => {
-                    series.legend(move |(x, y)| Circle::new((x + 9, y), 3, colour.filled()));
-                }
-                LineStyle::Solid => {
-                    series.legend(move |(x, y)| {
-                        PathElement::new(vec![(x, y), (x + 18, y)], line_style)
-                    });
-                }
-                LineStyle::Dashed => {
-                    series.legend(move |(x, y)| {
-                        EmptyElement::at((x, y))
-                            + PathElement::new(vec![(0, 0), (7, 0)], line_style)
-                            + PathElement::new(vec![(11, 0), (18, 0)], line_style)
-                    });
-                }
-            }
         }
     }
-
-    let any_label = c.lines.iter().any(|l| !l.label.is_empty())
-        || c.bands.iter().any(|b| !b.label.is_empty())
-        || c.spans.iter().any(|s| !s.label.is_empty());
-    if let Some(strip) = strip {
-        return draw_legend_strip(&strip, &swatches);
+    match strip {
+        Some(strip) => draw_legend_strip(&strip, &swatches),
+        None => Ok(()),
     }
-    if any_label {
-        chart
-            .configure_series_labels()
-            .position(legend_corner(c, (x0, x1), (y0, y1)))
-            .margin(LEGEND_MARGIN)
-            .legend_area_size(24)
-            .label_font(text(LABEL_SIZE - 1.0, INK))
-            .background_style(WHITE.mix(0.88))
-            .border_style(GRID)
-            .draw()?;
-    }
-    Ok(())
-}
-
-/// The plot corner the legend covers least data in: the one with the fewest points of lines,
-/// bands and reference lines inside a box of about the legend's size (a third of the width, a
-/// quarter of the height). Ties keep the order upper right, upper left, lower left, lower right.
-fn legend_corner(
-    c: &LineChart,
-    (x0, x1): (NaiveDate, NaiveDate),
-    (y0, y1): (f64, f64),
-) -> SeriesLabelPosition {
-    let span_x = ((x1 - x0).num_days() as f64).max(1.0);
-    let span_y = (y1 - y0).max(f64::EPSILON);
-    let fx = |d: NaiveDate| (d - x0).num_days() as f64 / span_x;
-    let fy = |v: f64| (v - y0) / span_y;
-    let mut pts: Vec<(f64, f64)> = Vec::new();
-    for l in &c.lines {
-        pts.extend(l.points.iter().map(|(d, v)| (fx(*d), fy(*v))));
-    }
-    for b in &c.bands {
-        for (d, lo, hi) in &b.points {
-            pts.push((fx(*d), fy(*lo)));
-            pts.push((fx(*d), fy(*hi)));
-        }
-    }
-    for h in &c.hlines {
-        // A reference line crosses the whole width, with its label at the right end.
-        pts.extend((0..=10).map(|i| (i as f64 / 10.0, fy(h.y))));
-    }
-    let corners = [
-        (SeriesLabelPosition::UpperRight, (0.66, 1.0), (0.75, 1.0)),
-        (SeriesLabelPosition::UpperLeft, (0.0, 0.34), (0.75, 1.0)),
-        (SeriesLabelPosition::LowerLeft, (0.0, 0.34), (0.0, 0.25)),
-        (SeriesLabelPosition::LowerRight, (0.66, 1.0), (0.0, 0.25)),
-    ];
-    let mut best = (usize::MAX, SeriesLabelPosition::UpperRight);
-    for (pos, (ax, bx), (ay, by)) in corners {
-        let n = pts
-            .iter()
-            .filter(|(x, y)| *x >= ax && *x <= bx && *y >= ay && *y <= by)
-            .count();
-        if n < best.0 {
-            best = (n, pos);
-        }
-    }
-    best.1
 }
 
 /// The mark shown beside a legend entry, as the series draws it.
@@ -780,14 +714,16 @@ enum Swatch {
     Dashed(ShapeStyle),
 }
 
-/// Draws legend entries in two columns filling `area` (the strip below a narrow chart).
+/// Draws legend entries in columns, top to bottom then left to right, filling `area` (the strip
+/// below the plot).
 fn draw_legend_strip<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     entries: &[(String, Swatch)],
 ) -> DrawResult<DB> {
     let (w, _) = area.dim_in_pixel();
-    let rows = entries.len().div_ceil(2);
-    let col_w = (w as i32 - 2 * LEGEND_X) / 2;
+    let cols = legend_columns(w);
+    let rows = entries.len().div_ceil(cols).max(1);
+    let col_w = (w as i32 - 2 * LEGEND_X) / cols as i32;
     for (i, (label, swatch)) in entries.iter().enumerate() {
         let x = LEGEND_X + (i / rows) as i32 * col_w;
         let y = LEGEND_MARGIN as i32
@@ -821,11 +757,21 @@ fn draw_legend_strip<DB: DrawingBackend>(
 
 fn draw_bar_chart<DB: DrawingBackend>(
     c: &BarChart,
-    root: &DrawingArea<DB, Shift>,
+    whole: &DrawingArea<DB, Shift>,
+    legend: u32,
 ) -> DrawResult<DB> {
     if c.bars.is_empty() {
-        return draw_empty(&c.title, root);
+        return draw_empty(&c.title, whole);
     }
+    // The target line is named in a strip below the plot, never over the bars.
+    let (plot, strip) = if legend > 0 {
+        let (_, h) = whole.dim_in_pixel();
+        let (top, bottom) = whole.split_vertically(h.saturating_sub(legend));
+        (top, Some(bottom))
+    } else {
+        (whole.clone(), None)
+    };
+    let root = &plot;
     let n = c.bars.len();
     let values = c
         .bars
@@ -936,15 +882,15 @@ fn draw_bar_chart<DB: DrawingBackend>(
             4u32,
             OI_VERMILLION.stroke_width(2),
         ))?;
-        chart.draw_series(std::iter::once(
-            EmptyElement::at((n as f64, t))
-                + Text::new(
-                    format!("target {}", fmt_num(t, 1)),
-                    (-4, -4),
-                    text(LABEL_SIZE - 1.0, VERMILLION_TEXT)
-                        .pos(Pos::new(HPos::Right, VPos::Bottom)),
-                ),
-        ))?;
+        if let Some(strip) = &strip {
+            draw_legend_strip(
+                strip,
+                &[(
+                    format!("Target: {}", fmt_num(t, 1)),
+                    Swatch::Dashed(OI_VERMILLION.stroke_width(2)),
+                )],
+            )?;
+        }
     }
     if any_suppressed {
         let (_, h) = root.dim_in_pixel();
@@ -958,7 +904,7 @@ fn draw_bar_chart<DB: DrawingBackend>(
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
 
     fn d(m: u32, day: u32) -> NaiveDate {
@@ -1128,9 +1074,10 @@ mod tests {
         let Chart::Line(line) = &chart else {
             unreachable!()
         };
-        // 3 lines, 1 band, 2 distinct span labels: 3 rows of two.
-        assert_eq!(legend_entries(line), 6);
-        let strip = legend_strip_height(line);
+        // 3 lines, 1 band, 1 reference line, 2 distinct span labels: 4 rows of two.
+        assert_eq!(legend_entries(line), 7);
+        let strip = legend_strip_height(line, 380);
+        assert_eq!(strip, 4 * LEGEND_LINE_PX + 2 * LEGEND_MARGIN + 8);
         let svg = to_svg_narrow(&chart, 380, 300);
         assert!(
             svg.contains(&format!("width=\"380\" height=\"{}\"", 300 + strip)),
@@ -1154,9 +1101,78 @@ mod tests {
                 );
             }
         }
-        // The wide chart keeps its legend inside the plot.
-        let wide = svg_text_positions(&to_svg(&chart, 720, 340));
-        assert!(wide.iter().any(|t| t.1 == "plateau" && t.0 < 300.0));
+    }
+
+    #[test]
+    fn wide_and_pdf_legends_sit_below_the_plot_and_name_the_reference_line() {
+        let chart = sample_line();
+        let Chart::Line(line) = &chart else {
+            unreachable!()
+        };
+        // Three columns at the wide size: 7 entries in 3 rows.
+        let strip = legend_strip_height(line, 720);
+        assert_eq!(strip, 3 * LEGEND_LINE_PX + 2 * LEGEND_MARGIN + 8);
+        assert_eq!(chart.pdf_canvas(), (720, 300 + strip));
+        let svg = to_svg(&chart, 720, 300);
+        assert!(svg.contains(&format!("width=\"720\" height=\"{}\"", 300 + strip)));
+        let texts = svg_text_positions(&svg);
+        let labels = legend_labels(line);
+        assert_eq!(labels.len(), 7);
+        for label in &labels {
+            let label = label.replace('<', "&lt;").replace('>', "&gt;");
+            let ys: Vec<f64> = texts.iter().filter(|t| t.1 == label).map(|t| t.0).collect();
+            assert!(!ys.is_empty(), "legend entry {label} missing");
+            // Inside the strip, so below every plotted point and axis label.
+            assert!(ys.iter().all(|y| *y >= 300.0), "{label} at {ys:?}");
+        }
+        // The reference line's label is only in the legend, never on the line in the plot.
+        let goal = &line.hlines[0].label;
+        assert!(texts.iter().filter(|t| &t.1 == goal).all(|t| t.0 >= 300.0));
+    }
+
+    /// The text of each legend entry of `c`.
+    fn legend_labels(c: &LineChart) -> Vec<String> {
+        let mut spans: Vec<String> = c.spans.iter().map(|s| s.label.clone()).collect();
+        spans.dedup();
+        c.lines
+            .iter()
+            .map(|l| l.label.clone())
+            .chain(c.bands.iter().map(|b| b.label.clone()))
+            .chain(c.hlines.iter().map(|h| h.label.clone()))
+            .chain(spans)
+            .filter(|l| !l.is_empty())
+            .collect()
+    }
+
+    #[test]
+    fn shaded_areas_have_distinguishable_colours() {
+        // Every fill a report's line chart shows (the three span kinds and the first two bands),
+        // over white, differs from every other by a clear margin in RGB: at least 25 of 441
+        // (common practice, not a standard; the old forecast band and regain period, orange
+        // and vermillion tints, were 23 apart and of one hue).
+        let over_white = |c: RGBAColor| {
+            let a = c.3;
+            [c.0, c.1, c.2].map(|v| f64::from(v) * a + 255.0 * (1.0 - a))
+        };
+        let mut fills: Vec<(String, [f64; 3])> =
+            [SpanKind::Plateau, SpanKind::Regain, SpanKind::Forecast]
+                .iter()
+                .map(|k| (format!("{k:?}"), over_white(span_fill(*k))))
+                .collect();
+        for (i, (c, a)) in BAND_COLOURS.iter().take(2).enumerate() {
+            fills.push((format!("band {i}"), over_white(c.mix(*a))));
+        }
+        for (i, (na, a)) in fills.iter().enumerate() {
+            for (nb, b) in &fills[i + 1..] {
+                let d = a
+                    .iter()
+                    .zip(b)
+                    .map(|(x, y)| (x - y).powi(2))
+                    .sum::<f64>()
+                    .sqrt();
+                assert!(d >= 25.0, "{na} and {nb} differ by only {d:.1}");
+            }
+        }
     }
 
     #[test]
@@ -1274,7 +1290,17 @@ mod tests {
         });
         let svg = to_svg(&all_suppressed, 600, 300);
         assert!(svg.contains("too few people"));
-        assert!(svg.contains("target 5"));
+        // The target is named in the strip below the plot, not over the bars.
+        let texts = svg_text_positions(&svg);
+        let target: Vec<f64> = texts
+            .iter()
+            .filter(|t| t.1 == "Target: 5")
+            .map(|t| t.0)
+            .collect();
+        assert!(
+            !target.is_empty() && target.iter().all(|y| *y >= 300.0),
+            "{target:?}"
+        );
         // No value label is printed for a suppressed bar (the value 0 would otherwise show).
         assert!(!svg.contains(">0</text>"));
     }
@@ -1287,45 +1313,6 @@ mod tests {
         // "ễ" is three UTF-8 bytes; with real metrics it is exactly as wide as "e".
         assert_eq!(ascii, accented);
         assert!(estimate_text_size("WWW", &style).0 > estimate_text_size("iii", &style).0 * 2);
-    }
-
-    #[test]
-    fn the_legend_goes_where_the_data_are_not() {
-        let d0 = NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
-        let line = |f: &dyn Fn(f64) -> f64| LineChart {
-            title: "t".into(),
-            y_label: String::new(),
-            lines: vec![LineSeries {
-                label: "l".into(),
-                points: (0..=100)
-                    .map(|i| (d0 + Duration::days(i), f(i as f64 / 100.0)))
-                    .collect(),
-                style: LineStyle::Solid,
-            }],
-            bands: vec![],
-            spans: vec![],
-            hlines: vec![],
-            alt_text: String::new(),
-        };
-        let xs = (d0, d0 + Duration::days(100));
-        // Falling from the top left: the upper right is free.
-        let falling = line(&|x| 1.0 - x);
-        assert!(matches!(
-            legend_corner(&falling, xs, (0.0, 1.0)),
-            SeriesLabelPosition::UpperRight
-        ));
-        // Rising to the top right: the upper left is free.
-        let rising = line(&|x| x);
-        assert!(matches!(
-            legend_corner(&rising, xs, (0.0, 1.0)),
-            SeriesLabelPosition::UpperLeft
-        ));
-        // High all along the top: a lower corner.
-        let high = line(&|_| 0.9);
-        assert!(matches!(
-            legend_corner(&high, xs, (0.0, 1.0)),
-            SeriesLabelPosition::LowerLeft
-        ));
     }
 
     #[test]

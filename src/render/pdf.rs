@@ -40,6 +40,8 @@ pub struct Document {
     pub header: String,
     /// Running footer, bottom left of every page ("page N of M" goes bottom right).
     pub footer: String,
+    /// Natural language of the content (BCP 47, e.g. `en`): the catalog's /Lang.
+    pub lang: String,
     pub blocks: Vec<Block>,
     /// Creation date written into the metadata; set by the caller so output is reproducible.
     pub created: NaiveDateTime,
@@ -61,14 +63,16 @@ pub enum Block {
     /// Two aligned columns: label and value.
     KeyValues(Vec<(String, String)>),
     Bullets(Vec<String>),
-    /// A table; `widths` are relative column widths (empty = equal).
+    /// A numbered list.
+    Numbered(Vec<String>),
+    /// A table; `widths` are relative column widths (empty = from the cells' text).
     Table {
         header: Vec<String>,
         rows: Vec<Vec<String>>,
         widths: Vec<f32>,
     },
     Chart(Chart),
-    /// A boxed note with a title.
+    /// A boxed note with a title (tagged as a level-3 heading) and text.
     Callout {
         tone: Tone,
         title: String,
@@ -432,11 +436,16 @@ impl Layout {
         self.y -= BODY * 0.6;
     }
 
-    fn bullets(&mut self, items: &[String]) {
-        let indent = 13.0;
+    fn bullets(&mut self, items: &[String], numbered: bool) {
+        let indent = if numbered { 18.0 } else { 13.0 };
         let lh = BODY * LEADING;
         self.tags.open("L");
-        for item in items {
+        for (n, item) in items.iter().enumerate() {
+            let label = if numbered {
+                format!("{}.", n + 1)
+            } else {
+                "•".to_string()
+            };
             let lines = wrap(item, Face::Regular, BODY, CONTENT_W - indent);
             // Keep short items together; long ones may break between lines.
             if lines.len() <= 4 {
@@ -448,7 +457,14 @@ impl Layout {
                 let baseline = self.y - BODY * ASCENT;
                 if i == 0 {
                     self.tags.open("Lbl");
-                    self.text(Face::Regular, BODY, muted(), MARGIN_X + 2.0, baseline, "•");
+                    self.text(
+                        Face::Regular,
+                        BODY,
+                        muted(),
+                        MARGIN_X + 2.0,
+                        baseline,
+                        &label,
+                    );
                     self.tags.close();
                     self.tags.open("LBody");
                 }
@@ -479,7 +495,7 @@ impl Layout {
             if widths.len() == ncols && widths.iter().all(|w| w.is_finite() && *w > 0.0) {
                 widths.to_vec()
             } else {
-                vec![1.0; ncols]
+                auto_widths(header, rows, ncols)
             };
         let total: f32 = rel.iter().sum();
         let col_w: Vec<f32> = rel.iter().map(|w| w / total * CONTENT_W).collect();
@@ -629,7 +645,10 @@ impl Layout {
         }
         self.gap(2.0);
         self.tags.open("Div");
-        self.tags.open("P");
+        // The title (bold lines) is the box's heading, level 3 as in the HTML; the text a P.
+        let title_lines = lines.iter().take_while(|(f, _)| *f == Face::Bold).count();
+        let mut done = 0;
+        let mut open: Option<&str> = None;
         let mut rest = &lines[..];
         while !rest.is_empty() {
             let fit = ((self.remaining() - 2.0 * pad) / lh).floor().max(0.0) as usize;
@@ -651,16 +670,27 @@ impl Layout {
                 push_fill_rect(ops, bar.clone(), MARGIN_X, y, bar_w, h);
             });
             for (i, (face, l)) in rest[..n].iter().enumerate() {
+                let role = if done + i < title_lines { "H3" } else { "P" };
+                if open != Some(role) {
+                    if open.is_some() {
+                        self.tags.close();
+                    }
+                    self.tags.open(role);
+                    open = Some(role);
+                }
                 let baseline = y - pad - i as f32 * lh - BODY * ASCENT;
                 self.text(*face, BODY, ink(), inner_x, baseline, l);
             }
+            done += n;
             self.y -= h;
             rest = &rest[n..];
             if !rest.is_empty() {
                 self.new_page();
             }
         }
-        self.tags.close();
+        if open.is_some() {
+            self.tags.close();
+        }
         self.tags.close();
         self.y -= BODY * 0.9;
     }
@@ -681,9 +711,18 @@ impl Layout {
                 self.heading(*level, text, keep)
             }
             Block::Paragraph(t) => self.paragraph(t, BODY, ink()),
-            Block::Small(t) => self.paragraph(t, SMALL, muted()),
+            Block::Small(t) => {
+                // A note that introduces a table (a caption, "Data behind the chart") stays on
+                // a page with the table's header and first rows.
+                if matches!(next, Some(Block::Table { .. })) {
+                    let lines = wrap(t, Face::Regular, SMALL, CONTENT_W).len() as f32;
+                    self.ensure(lines * SMALL * LEADING + 3.0 * TABLE * 1.3 + 12.0);
+                }
+                self.paragraph(t, SMALL, muted())
+            }
             Block::KeyValues(kvs) => self.key_values(kvs),
-            Block::Bullets(items) => self.bullets(items),
+            Block::Bullets(items) => self.bullets(items, false),
+            Block::Numbered(items) => self.bullets(items, true),
             Block::Table {
                 header,
                 rows,
@@ -698,6 +737,42 @@ impl Layout {
             }
         }
     }
+}
+
+/// Column widths from the cells' text: each column gets at least its longest word (so words
+/// are not broken) and the rest of the width goes by how much wider its longest cell is.
+fn auto_widths(header: &[String], rows: &[Vec<String>], ncols: usize) -> Vec<f32> {
+    let pad = 8.0;
+    let mut min = vec![TABLE; ncols];
+    let mut natural = vec![TABLE; ncols];
+    let cells =
+        std::iter::once((header, Face::Bold)).chain(rows.iter().map(|r| (&r[..], Face::Regular)));
+    for (row, face) in cells {
+        let m = font::face(face);
+        for (i, cell) in row.iter().enumerate().take(ncols) {
+            let longest_word = cell
+                .split_whitespace()
+                .map(|w| m.width(w, TABLE))
+                .fold(0.0f32, f32::max);
+            min[i] = min[i].max(longest_word + pad);
+            natural[i] = natural[i].max(m.width(cell, TABLE) + pad);
+        }
+    }
+    let min_sum: f32 = min.iter().sum();
+    let natural_sum: f32 = natural.iter().sum();
+    if natural_sum <= CONTENT_W {
+        // Everything fits on one line: share out the spare room in proportion.
+        return natural;
+    }
+    if min_sum >= CONTENT_W {
+        return min;
+    }
+    let spare = CONTENT_W - min_sum;
+    let want: f32 = natural_sum - min_sum;
+    min.iter()
+        .zip(&natural)
+        .map(|(lo, hi)| lo + spare * (hi - lo) / want)
+        .collect()
 }
 
 /// Running header and footer for page `n` of `m`.
@@ -960,7 +1035,7 @@ pub fn render_pdf(doc: &Document) -> Result<Vec<u8>, PdfError> {
             title: &doc.title,
             author: &doc.author,
             subject: &doc.subject,
-            lang: "en",
+            lang: if doc.lang.is_empty() { "en" } else { &doc.lang },
             created: &doc.created.format("%Y-%m-%dT%H:%M:%S").to_string(),
             producer,
         },
@@ -1141,6 +1216,7 @@ pub(crate) mod tests {
             author: "Harbourside Wellbeing Programme".into(),
             header: format!("Harbourside Wellbeing Programme · {NAME} · May 2025"),
             footer: "Confidential — for the participant and their care team".into(),
+            lang: "en".into(),
             blocks: vec![
                 Block::Heading { level: 1, text: format!("Progress report for {NAME}") },
                 Block::KeyValues(vec![
@@ -1339,6 +1415,9 @@ pub(crate) mod tests {
         for role in ["H2", "L", "LI", "Lbl", "LBody", "TH[Column]", "TD", "Div"] {
             assert!(position(role).is_some(), "{role} missing from {roles:?}");
         }
+        // A callout: its title is a level-3 heading, then its text.
+        let div = position("Div").unwrap();
+        assert_eq!(&roles[div + 1..div + 3], ["H3", "P"], "{roles:?}");
         // The 60-row weigh-in table: one header row and 60 body rows, although its header is
         // drawn again on every continuation page (as an artifact).
         let last_table = roles.iter().rposition(|r| r == "Table").unwrap();
@@ -1588,6 +1667,7 @@ pub(crate) mod tests {
             author: String::new(),
             header: "H".into(),
             footer: String::new(),
+            lang: "en".into(),
             blocks: vec![Block::PageBreak],
             created: NaiveDate::from_ymd_opt(2025, 1, 1)
                 .unwrap()

@@ -510,10 +510,10 @@ mod tests {
             .filter(|o| matches!(o, Op::DrawPolygon { .. }))
             .count();
         assert!(lines > 5 && polys >= 10, "lines {lines}, polygons {polys}");
-        // The plateau tint is 30 % opaque (span_fill), drawn through a named graphics state.
+        // The plateau tint is 35 % opaque (span_fill), drawn through a named graphics state.
         assert!(
             ops.iter().any(
-                |o| matches!(o, Op::LoadGraphicsState { gs } if gs.0 == alpha_state_name(0.30))
+                |o| matches!(o, Op::LoadGraphicsState { gs } if gs.0 == alpha_state_name(0.35))
             )
         );
         // Every point lies within the chart box (50..530 × 473.3..700).

@@ -15,7 +15,7 @@ use super::templates::TemplateSet;
 use super::{ProgramView, RenderError, TableView};
 use crate::modules::ModuleResults;
 use crate::program::Format;
-use crate::runner::RunPlan;
+use crate::run::execute::RunPlan;
 use chrono::{Datelike, Months, NaiveDate};
 use cohortpress_metric_api::{FlagSeverity, ParticipantData, Period};
 use serde::{Deserialize, Serialize};
@@ -387,13 +387,26 @@ pub fn render(
 ) -> Result<Vec<(String, Vec<u8>)>, RenderError> {
     let ctx = context(plan, records);
     let mut out = Vec::new();
+    let html = templates.render("followup.html", &ctx, serde_json::Map::new())?;
     for f in formats {
         match f {
-            Format::Html => {
-                let html = templates.render("followup.html", &ctx, serde_json::Map::new())?;
-                out.push(("followup.html".to_string(), html.into_bytes()));
-            }
-            Format::Pdf => out.push(("followup.pdf".to_string(), super::pdf::followup(&ctx)?)),
+            Format::Html => out.push(("followup.html".to_string(), html.clone().into_bytes())),
+            Format::Pdf => out.push((
+                "followup.pdf".to_string(),
+                super::from_html::pdf(
+                    &html,
+                    &templates.source_of("followup.html"),
+                    &std::collections::BTreeMap::new(),
+                    super::from_html::Frame {
+                        header: format!("{} · {}", ctx.program.title, ctx.program.period_label),
+                        footer: format!("Private · for {}", ctx.recipient),
+                        subject: format!("Clinician follow-up list, {}", ctx.program.title),
+                        author: ctx.program.tool.clone(),
+                        period_to: ctx.program.period_to.clone(),
+                        id_seed: format!("{}/{}/followup", ctx.program.id, ctx.program.period_to),
+                    },
+                )?,
+            )),
         }
     }
     out.push(("followup.csv".to_string(), csv(plan, records)?));

@@ -10,7 +10,7 @@ use crate::group::{ChangeLine, GroupReport, Section, SectionStats};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle,
 };
-use crate::runner::{RunPlan, RunSummary};
+use crate::run::execute::{RunPlan, RunSummary};
 use serde::Serialize;
 
 /// What the group templates see (documented in `report-templates/CONTEXT.md`).
@@ -61,9 +61,6 @@ pub struct SectionView {
     pub undrawn: Vec<ChartView>,
     /// Figures of this section withheld or shown as ranges by the audit, and why.
     pub audit_notes: Vec<String>,
-    /// Names of the drawn charts (for the PDF layout).
-    #[serde(skip)]
-    pub chart_names: Vec<String>,
 }
 
 /// A chart reference in a section.
@@ -299,7 +296,6 @@ fn section(
         charts: Vec::new(),
         undrawn: Vec::new(),
         audit_notes: Vec::new(),
-        chart_names: Vec::new(),
     };
     let Some(st) = &s.stats else {
         if view.withheld.is_none() {
@@ -493,7 +489,6 @@ fn fill(
                 table: hist_table,
             },
         });
-        view.chart_names.push(hist_name);
     }
 
     // Mean trajectory by week since enrolment (weeks with a shown mean only).
@@ -557,7 +552,6 @@ fn fill(
                 table,
             },
         });
-        view.chart_names.push(name);
     } else if !st.trajectory.is_empty() {
         view.undrawn.push(ChartView {
             title: "Mean weight change by week".into(),

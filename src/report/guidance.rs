@@ -33,7 +33,7 @@
 
 use super::format as fmt;
 use crate::modules::ModuleResults;
-use crate::runner::RunPlan;
+use crate::run::execute::RunPlan;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{
     Cell, FlagSeverity, ModuleOutput, ParticipantData, Sex, Table, UnitSystem,

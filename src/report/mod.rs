@@ -1,6 +1,6 @@
-//! Reports: the report model (what templates and the PDF layout see), HTML through handlebars
-//! templates, and PDF through [`crate::render::pdf`]. Everything here returns bytes; only the
-//! runner writes files.
+//! Reports: the report model (what templates see), HTML through handlebars templates, and the
+//! PDF laid out from that same HTML ([`from_html`]) through [`crate::render::pdf`]. Everything
+//! here returns bytes; only the runner writes files.
 //!
 //! One model feeds both formats: [`participant::ParticipantReportContext`] and
 //! [`group::GroupReportContext`] hold every figure already formatted in the program's display
@@ -9,10 +9,10 @@
 pub mod cautions;
 pub mod followup;
 pub mod format;
+pub mod from_html;
 pub mod group;
 pub mod guidance;
 pub mod participant;
-pub mod pdf;
 pub mod templates;
 
 use crate::diag::Diagnostic;
@@ -20,9 +20,10 @@ use crate::group::GroupReport;
 use crate::modules::ModuleResults;
 use crate::program::Format;
 use crate::render::chart::{self, Chart};
-use crate::runner::{RunPlan, RunSummary};
+use crate::run::execute::{RunPlan, RunSummary};
 use cohortpress_metric_api::ParticipantData;
 use serde::Serialize;
+use std::collections::BTreeMap;
 use templates::TemplateSet;
 
 pub use group::GroupReportContext;
@@ -157,7 +158,7 @@ pub enum RenderError {
     Json(#[from] serde_json::Error),
 }
 
-/// Chart sizes, in SVG pixels.
+/// Chart sizes, in SVG pixels: width and plot height (a line chart adds its legend strip below).
 const CHART_W: u32 = 720;
 const CHART_H: u32 = 300;
 
@@ -165,38 +166,67 @@ const CHART_H: u32 = 300;
 const NARROW_W: u32 = 380;
 const NARROW_PLOT_H: u32 = 300;
 
-/// Each chart drawn twice: wide (legend in the emptiest plot corner) and narrow (legend below the
-/// plot); the shared style shows one of them by screen width, so a phone never scrolls sideways.
-fn svg(c: &Chart) -> String {
+/// Each chart drawn twice: wide and narrow (legend below the plot in both); the shared style
+/// shows one of them by screen width, so a phone never scrolls sideways. The wrapper's
+/// `data-chart` names the chart for the PDF, which draws it natively from the same description.
+fn svg(name: &str, c: &Chart) -> String {
+    let mut esc = String::new();
+    handlebars::html_escape(name).clone_into(&mut esc);
     format!(
-        "<div class=\"chart-wide\">{}</div><div class=\"chart-narrow\">{}</div>",
+        "<div class=\"chart\" data-chart=\"{esc}\"><div class=\"chart-wide\">{}</div><div class=\"chart-narrow\">{}</div></div>",
         chart::to_svg(c, CHART_W, CHART_H),
         chart::to_svg_narrow(c, NARROW_W, NARROW_PLOT_H)
     )
 }
 
-/// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes).
+/// The drawn charts by name, as SVG for the template's `{{chart}}` helper.
+fn svg_map(charts: &BTreeMap<String, Chart>) -> serde_json::Map<String, serde_json::Value> {
+    charts
+        .iter()
+        .map(|(name, c)| (name.clone(), svg(name, c).into()))
+        .collect()
+}
+
+/// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes). The PDF
+/// is laid out from the HTML, so both always say the same.
 pub fn render_participant(
     templates: &TemplateSet,
     report: &ParticipantReport,
     formats: &[Format],
 ) -> Result<Vec<(&'static str, Vec<u8>)>, RenderError> {
+    let mut charts = BTreeMap::new();
+    charts.insert("weight".to_string(), report.weight_chart.clone());
+    if let Some(c) = &report.energy_chart {
+        charts.insert("energy".into(), c.clone());
+    }
+    if let Some(c) = &report.activity_chart {
+        charts.insert("activity".into(), c.clone());
+    }
+    let html = templates.render("participant.html", &report.ctx, svg_map(&charts))?;
+    let c = &report.ctx;
     let mut out = Vec::new();
     for f in formats {
         match f {
-            Format::Html => {
-                let mut charts = serde_json::Map::new();
-                charts.insert("weight".into(), svg(&report.weight_chart).into());
-                if let Some(c) = &report.energy_chart {
-                    charts.insert("energy".into(), svg(c).into());
-                }
-                if let Some(c) = &report.activity_chart {
-                    charts.insert("activity".into(), svg(c).into());
-                }
-                let html = templates.render("participant.html", &report.ctx, charts)?;
-                out.push(("html", html.into_bytes()));
-            }
-            Format::Pdf => out.push(("pdf", pdf::participant(report)?)),
+            Format::Html => out.push(("html", html.clone().into_bytes())),
+            Format::Pdf => out.push((
+                "pdf",
+                from_html::pdf(
+                    &html,
+                    &templates.source_of("participant.html"),
+                    &charts,
+                    from_html::Frame {
+                        header: format!("{} · {}", c.program.title, c.program.period_label),
+                        footer: format!("Private · participant {}", c.participant.id),
+                        subject: format!("Private progress report, {}", c.program.title),
+                        author: c.program.tool.clone(),
+                        period_to: c.program.period_to.clone(),
+                        id_seed: format!(
+                            "{}/{}/{}",
+                            c.program.id, c.program.period_to, c.participant.id
+                        ),
+                    },
+                )?,
+            )),
         }
     }
     Ok(out)
@@ -208,18 +238,29 @@ pub fn render_group(
     report: &group::GroupReportModel,
     formats: &[Format],
 ) -> Result<Vec<(String, Vec<u8>)>, RenderError> {
+    let charts: BTreeMap<String, Chart> = report.charts.iter().cloned().collect();
+    let html = templates.render("group.html", &report.ctx, svg_map(&charts))?;
+    let c = &report.ctx;
     let mut out = Vec::new();
     for f in formats {
         match f {
-            Format::Html => {
-                let mut charts = serde_json::Map::new();
-                for (name, c) in &report.charts {
-                    charts.insert(name.clone(), svg(c).into());
-                }
-                let html = templates.render("group.html", &report.ctx, charts)?;
-                out.push(("program.html".to_string(), html.into_bytes()));
-            }
-            Format::Pdf => out.push(("program.pdf".to_string(), pdf::group(report)?)),
+            Format::Html => out.push(("program.html".to_string(), html.clone().into_bytes())),
+            Format::Pdf => out.push((
+                "program.pdf".to_string(),
+                from_html::pdf(
+                    &html,
+                    &templates.source_of("group.html"),
+                    &charts,
+                    from_html::Frame {
+                        header: format!("{} · {}", c.program.title, c.program.period_label),
+                        footer: "De-identified group report".into(),
+                        subject: format!("De-identified group report, {}", c.program.title),
+                        author: c.program.tool.clone(),
+                        period_to: c.program.period_to.clone(),
+                        id_seed: format!("{}/{}/group", c.program.id, c.program.period_to),
+                    },
+                )?,
+            )),
         }
     }
     Ok(out)

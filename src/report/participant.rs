@@ -9,7 +9,7 @@ use crate::modules::ModuleResults;
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
 };
-use crate::runner::RunPlan;
+use crate::run::execute::RunPlan;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{
     Cell, FlagSeverity, ModuleOutput, ParticipantData, Table, UnitSystem,

@@ -115,6 +115,16 @@ impl TemplateSet {
         Ok(TemplateSet { hb, sources })
     }
 
+    /// Where template `name` (e.g. `participant.html`) comes from, for messages:
+    /// `participant.html.hbs (built-in)` or the override's path.
+    pub fn source_of(&self, name: &str) -> String {
+        let file = format!("{name}.hbs");
+        match self.sources.iter().find(|(f, _)| *f == file) {
+            Some((_, src)) if src != "built-in" => src.clone(),
+            _ => format!("{file} (built-in)"),
+        }
+    }
+
     /// Renders template `name` (e.g. `participant.html`) with `ctx` plus the pre-drawn charts.
     pub fn render<T: Serialize>(
         &self,

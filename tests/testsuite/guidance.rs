@@ -12,7 +12,7 @@ const AS_OF: &str = "2026-12-01";
 
 /// For each usable sample participant: (state, phase, guidance, participant HTML).
 struct Sample {
-    plan: cohortpress::runner::RunPlan,
+    plan: cohortpress::run::execute::RunPlan,
     people: BTreeMap<
         String,
         (
@@ -25,7 +25,7 @@ struct Sample {
 }
 
 fn sample() -> Sample {
-    use cohortpress::cli::{Cli, Command};
+    use cohortpress::cmd::cli::{Cli, Command};
     let root = repo_root().join("sample-program");
     let cli = Cli::try_parse_from([
         "cohortpress",
@@ -39,7 +39,7 @@ fn sample() -> Sample {
         panic!("not a run command")
     };
     let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
-    let plan = cohortpress::runner::plan_from_args(&args, today).unwrap_or_else(|(c, d)| {
+    let plan = cohortpress::run::execute::plan_from_args(&args, today).unwrap_or_else(|(c, d)| {
         panic!("plan: exit {c}: {d:?}");
     });
     let (dirs, _) = cohortpress::participant::discover(&plan.program);

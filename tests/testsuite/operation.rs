@@ -409,7 +409,7 @@ fn three_shards_merged_equal_a_single_run() {
         // Each participant's shard follows from their id alone.
         for id in ids {
             assert_eq!(
-                cohortpress::shard::shard_of(id.as_str().unwrap(), 3),
+                cohortpress::run::shard::shard_of(id.as_str().unwrap(), 3),
                 k,
                 "{id} in shard {k}"
             );

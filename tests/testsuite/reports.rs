@@ -82,7 +82,7 @@ struct Contexts {
 fn contexts() -> &'static Contexts {
     static CTX: OnceLock<Contexts> = OnceLock::new();
     CTX.get_or_init(|| {
-        use cohortpress::cli::{Cli, Command};
+        use cohortpress::cmd::cli::{Cli, Command};
         let root = repo_root().join("sample-program");
         let cli = Cli::try_parse_from([
             "cohortpress",
@@ -96,13 +96,13 @@ fn contexts() -> &'static Contexts {
             panic!("not a run command")
         };
         let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
-        let plan = cohortpress::runner::plan_from_args(&args, today)
+        let plan = cohortpress::run::execute::plan_from_args(&args, today)
             .unwrap_or_else(|(code, d)| panic!("plan: exit {code}: {d:?}"));
         let (dirs, _) = cohortpress::participant::discover(&plan.program);
         let templates = TemplateSet::load(&plan.program).expect("built-in templates load");
         let mut participants = BTreeMap::new();
         let mut rows = Vec::new();
-        let mut summary = cohortpress::runner::RunSummary {
+        let mut summary = cohortpress::run::execute::RunSummary {
             participants: dirs.len(),
             ..Default::default()
         };
@@ -131,7 +131,9 @@ fn contexts() -> &'static Contexts {
                 .expect("renders");
                 snapshot_html = String::from_utf8(files[0].1.clone()).unwrap();
             }
-            rows.push(cohortpress::runner::summary_row(&plan, &data, &results));
+            rows.push(cohortpress::run::execute::summary_row(
+                &plan, &data, &results,
+            ));
             participants.insert(data.profile.id.clone(), report.ctx);
         }
         let opts = cohortpress::group::GroupOptions {
@@ -483,7 +485,11 @@ fn participant_pdfs_carry_unicode_names_figures_header_and_footer() {
             .and_then(|o| o.as_dict())
             .unwrap();
         let title = lopdf::decode_text_string(info.get(b"Title").unwrap()).unwrap();
-        assert_eq!(title, format!("{name} · September 2026"));
+        // The title is the HTML's <title>: the PDF follows the template.
+        assert_eq!(
+            title,
+            format!("{name} · Steady Ground 2026 · September 2026")
+        );
     }
 }
 
@@ -849,4 +855,211 @@ fn group_itt_n_is_the_number_of_started_participants() {
         "{}",
         run.outcome.stderr
     );
+}
+
+// ---------------------------------------------------------------------------------------------
+// 5. One description: the PDF follows the HTML the template produced
+// ---------------------------------------------------------------------------------------------
+
+/// The text of a PDF as poppler's `pdftotext -raw` reads it (content-stream order) without the
+/// running header and footer, or `None`
+/// with a message when poppler-utils is not installed (with `COHORTPRESS_REQUIRE_POPPLER=1`,
+/// as `.ci/run` sets when it is, the test fails instead).
+fn pdftotext(path: &std::path::Path) -> Option<String> {
+    match std::process::Command::new("pdftotext")
+        .args(["-raw", "-enc", "UTF-8"])
+        .arg(path)
+        .arg("-")
+        .output()
+    {
+        Ok(out) if out.status.success() => {
+            // Each page's running header, page number and footer are drawn last (artifacts, in
+            // that order): drop them, so a paragraph that continues on the next page reads on.
+            let text = String::from_utf8(out.stdout).expect("UTF-8");
+            let pages: Vec<String> = text
+                .split('\x0c')
+                .map(|page| {
+                    let mut lines: Vec<&str> = page.lines().collect();
+                    while lines.last().is_some_and(|l| l.trim().is_empty()) {
+                        lines.pop();
+                    }
+                    if !lines.is_empty() {
+                        assert!(
+                            lines.len() >= 3 && lines[lines.len() - 2].starts_with("page "),
+                            "page without running text: {page:.300}"
+                        );
+                        lines.truncate(lines.len() - 3);
+                    }
+                    lines.join("\n")
+                })
+                .collect();
+            Some(pages.join("\n"))
+        }
+        Ok(out) => panic!(
+            "pdftotext {}: {}",
+            path.display(),
+            String::from_utf8_lossy(&out.stderr)
+        ),
+        Err(e) => {
+            assert!(
+                std::env::var_os("COHORTPRESS_REQUIRE_POPPLER").is_none(),
+                "pdftotext is required (COHORTPRESS_REQUIRE_POPPLER) but cannot run: {e}"
+            );
+            eprintln!("SKIPPED: PDF text check: pdftotext (poppler-utils) cannot run: {e}");
+            None
+        }
+    }
+}
+
+/// `s` without any white space (PDF lines wrap where the HTML flows).
+fn squeeze(s: &str) -> String {
+    s.chars().filter(|c| !c.is_whitespace()).collect()
+}
+
+/// The text a reader of the HTML gets, one piece per text node, in document order: everything
+/// in the body except charts' SVG (compared as pictures), the section navigation and
+/// screen-only parts; collapsed `<details>` are included, as printing shows them.
+fn html_visible_text(html: &str) -> Vec<String> {
+    fn walk(n: ego_tree::NodeRef<'_, scraper::Node>, out: &mut Vec<String>) {
+        match n.value() {
+            scraper::Node::Text(t) => {
+                let t = t.split_whitespace().collect::<Vec<_>>().join(" ");
+                if !t.is_empty() {
+                    out.push(t);
+                }
+            }
+            scraper::Node::Element(e) => {
+                let skip = matches!(e.name(), "head" | "style" | "script" | "svg" | "nav")
+                    || e.classes()
+                        .any(|c| c == "screen-only" || c == "chart-narrow");
+                if !skip {
+                    n.children().for_each(|c| walk(c, out));
+                }
+            }
+            _ => n.children().for_each(|c| walk(c, out)),
+        }
+    }
+    let doc = scraper::Html::parse_document(html);
+    let mut out = Vec::new();
+    walk(*doc.root_element(), &mut out);
+    out
+}
+
+/// Asserts that every piece of the HTML's visible text appears in the PDF's text, in the same
+/// order (white space aside).
+fn assert_same_text(what: &str, html: &str, pdf_text: &str) {
+    let pdf = squeeze(pdf_text);
+    let pieces = html_visible_text(html);
+    assert!(pieces.len() > 40, "{what}: only {} pieces", pieces.len());
+    let mut at = 0;
+    for piece in &pieces {
+        let p = squeeze(piece);
+        match pdf[at..].find(&p) {
+            Some(i) => at += i + p.len(),
+            None => panic!(
+                "{what}: `{piece}` is not in the PDF after `…{}`",
+                pdf[..at]
+                    .chars()
+                    .rev()
+                    .take(80)
+                    .collect::<Vec<_>>()
+                    .into_iter()
+                    .rev()
+                    .collect::<String>()
+            ),
+        }
+    }
+}
+
+#[test]
+fn html_and_pdf_carry_the_same_text() {
+    let run = sample_run();
+    for (html, pdf) in [
+        ("participants/SG-002.html", "participants/SG-002.pdf"),
+        ("participants/SG-035.html", "participants/SG-035.pdf"),
+        ("group/program.html", "group/program.pdf"),
+    ] {
+        let Some(text) = pdftotext(&run.out().join(pdf)) else {
+            return;
+        };
+        assert_same_text(pdf, &run.read(html), &text);
+    }
+}
+
+#[test]
+fn a_template_override_changes_the_html_and_the_pdf() {
+    let prog = ProgramTest::fixture("report-small");
+    std::fs::create_dir(prog.dir.join("templates")).unwrap();
+    let builtin = BUILTIN
+        .iter()
+        .find(|(n, _)| *n == "participant.html.hbs")
+        .unwrap()
+        .1;
+    let old = "<h2 id=\"h-summary\">Where you stand</h2>";
+    assert!(builtin.contains(old));
+    let own = builtin.replace(
+        old,
+        "<h2 id=\"h-summary\">Your month in brief</h2>\n  \
+         <p>Figures below are from the weigh-ins you recorded, kestrel-marker.</p>",
+    );
+    std::fs::write(prog.dir.join("templates/participant.html.hbs"), own).unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("reports/participants/SG-007.html")).unwrap();
+    assert!(html.contains("<h2 id=\"h-summary\">Your month in brief</h2>"));
+    assert!(!html.contains("Where you stand"));
+    // The PDF through lopdf (always available) and through poppler when installed.
+    let pdf_path = prog.dir.join("reports/participants/SG-007.pdf");
+    let pages = pdf_pages(&std::fs::read(&pdf_path).unwrap()).concat();
+    let flat = pages.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(flat.contains("Your month in brief"), "{flat:.600}");
+    assert!(flat.contains("recorded, kestrel-marker."), "{flat:.600}");
+    assert!(!flat.contains("Where you stand"));
+    if let Some(text) = pdftotext(&pdf_path) {
+        let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
+        assert!(flat.contains("Your month in brief"));
+        assert!(
+            flat.contains("Figures below are from the weigh-ins you recorded, kestrel-marker.")
+        );
+        assert!(!flat.contains("Where you stand"));
+        assert_same_text("overridden SG-007.pdf", &html, &text);
+    }
+    // The heading is still a level-2 heading in the PDF's structure.
+    if let Ok(o) = std::process::Command::new("pdfinfo")
+        .arg("-struct-text")
+        .arg(&pdf_path)
+        .output()
+    {
+        let tree = String::from_utf8_lossy(&o.stdout);
+        let lines: Vec<&str> = tree.lines().collect();
+        assert!(
+            lines.windows(2).any(|w| w[0].trim().starts_with("H2 ")
+                && w[1].trim() == "\"Your month in brief\""),
+            "{tree:.1500}"
+        );
+    }
+}
+
+#[test]
+fn an_element_outside_the_pdf_subset_fails_the_run_naming_template_and_element() {
+    let prog = ProgramTest::fixture("report-small");
+    std::fs::create_dir(prog.dir.join("templates")).unwrap();
+    let own = BUILTIN
+        .iter()
+        .find(|(n, _)| *n == "participant.html.hbs")
+        .unwrap()
+        .1
+        .replace("<p class=\"lead\">", "<h4>Deep</h4><p class=\"lead\">");
+    std::fs::write(prog.dir.join("templates/participant.html.hbs"), own).unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 6, "{}", out.stderr);
+    assert!(
+        out.stderr.contains("templates/participant.html.hbs"),
+        "{}",
+        out.stderr
+    );
+    assert!(out.stderr.contains("<h4>"), "{}", out.stderr);
+    assert!(!prog.dir.join("reports/participants").exists());
 }

@@ -295,6 +295,27 @@ fn a_panic_maps_to_exit_code_70_with_one_line() {
     assert_eq!(stderr.trim_end().lines().count(), 1, "{stderr}");
 }
 
+/// `cohortpress check … | head`: the reader closes the pipe before the report is written. The code
+/// still says what the inputs are (the same as with the whole report read), not "writing failed".
+#[test]
+fn check_into_a_closed_pipe_keeps_the_inputs_exit_code() {
+    let t = ProgramTest::fixture("broken-program");
+    let whole = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert!(!whole.stdout.is_empty());
+    let mut child = Command::new(BIN)
+        .args(["check", t.dir.to_str().unwrap(), "--as-of", AS_OF])
+        .env_clear()
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    // Closing our end before the child has checked anything: its first write meets a closed pipe.
+    drop(child.stdout.take());
+    let status = child.wait().unwrap();
+    assert_eq!(status.code(), Some(whole.code), "{whole:?}");
+    assert_ne!(status.code(), Some(6));
+}
+
 /// Runs `cohortpress ARGS…` like [`ProgramTest::run`], but kills it after `secs` seconds; `None`
 /// when it had to be killed (a run that waits forever under cron holds its lock forever).
 fn run_within(t: &ProgramTest, args: &[&str], secs: u64) -> Option<i32> {

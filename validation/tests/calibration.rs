@@ -27,11 +27,12 @@ fn check(seed: u64) {
         ("forecast band coverage", 0.90, true, s.forecast_coverage),
         ("regain sensitivity", 0.80, true, s.regain_sensitivity),
         ("regain specificity", 0.95, true, s.regain_specificity),
-        ("plateau onset within ±14 d", 0.40, true, s.plateau_onset_14),
+        // Measured 48 % (seed 20261202) and 51 % (seed 7) with plateaus judged on tissue.
+        ("plateau onset within ±14 d", 0.44, true, s.plateau_onset_14),
         ("plateau cause correct", 0.72, true, s.cause_correct),
         (
             "plateaus reported without one",
-            0.20,
+            0.16,
             false,
             s.plateau_false,
         ),

@@ -769,16 +769,33 @@ pub(crate) fn run(
     let mut forecast_end: Option<Band> = None;
     if let (Some(i), true) = (implied, horizon > 0) {
         let mid = run_forecast(&|_| i.value);
-        let lo = run_forecast(&|d| (i.value - Z_95 * intake_sd_at(d)).max(0.0));
+        let lo_intake = |d: usize| (i.value - Z_95 * intake_sd_at(d)).max(0.0);
         // Adherence fades more often than it grows: the upper edge also gives up half of the
         // current deficit (below the baseline requirement) by the end of the horizon, the usual
         // course in programs of six months and longer (Thomas et al. 2014, Am J Clin Nutr
         // 100:787; program choice of "half").
         let deficit = (p.model.ei0 - i.value).max(0.0);
         let hz = horizon.max(1) as f64;
-        let hi = run_forecast(&|d| {
+        let hi_intake = |d: usize| {
             i.value + Z_95 * intake_sd_at(d) + FADE_SHARE * deficit * (d as f64 / hz).min(1.0)
-        });
+        };
+        // Glycogen with its water and extracellular fluid follow intake within about a day in
+        // Hall's adult model (glycogen τ ≈ ρ_G·G₀/(2·CI₀) ≈ 1 d, extracellular fluid
+        // τ ≈ [Na]/ξ_Na ≈ 1 d; Hall et al. 2011, Lancet 378:826, appendix; Hall 2006, Am J
+        // Physiol Endocrinol Metab 291:E23, values from memory), so on an intake path I(d) the
+        // fast weight moves by κ·(I(d) − I(0)) at equilibrium (κ from
+        // `fast_compartment_kg_per_kcal`); the tissue model above carries the rest. The trend
+        // weight the forecast starts from already holds today's fast weight.
+        let kappa = crate::dynamics::fast_compartment_kg_per_kcal(p.model.ei0);
+        let with_fast = |path: Vec<f64>, intake: &dyn Fn(usize) -> f64| -> Vec<f64> {
+            let i0 = intake(0);
+            path.into_iter()
+                .enumerate()
+                .map(|(d, w)| w + kappa * (intake(d) - i0))
+                .collect()
+        };
+        let lo = with_fast(run_forecast(&lo_intake), &lo_intake);
+        let hi = with_fast(run_forecast(&hi_intake), &hi_intake);
         for (d, w) in mid.iter().enumerate() {
             let widen = |edge: f64| ((edge - w).powi(2) + level_half.powi(2)).sqrt();
             forecast_points.push(Point {

@@ -20,6 +20,7 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
+pub mod fast;
 pub mod llt;
 pub mod plateau;
 pub mod theil_sen;
@@ -140,7 +141,9 @@ impl MetricModule for TrendModule {
                 (Harvey 1989; Durbin & Koopman 2012), variances by maximum likelihood, outlier \
                 screening on standardized innovations; Theil–Sen slope with Sen's interval (Sen \
                 1968) as a cross-check; plateau, loss and regain periods by an equivalence-style \
-                test of the mean slope over sliding windows (thresholds are program settings)."
+                test of the mean slope over sliding windows (thresholds are program settings); \
+                plateaus judged on tissue, with the glycogen/water weight implied by the food \
+                log taken out (Hall et al. 2011)."
                 .into(),
             settings: vec![
                 setting(
@@ -539,7 +542,25 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     });
 
     // Periods.
-    let periods_now = find_periods(&sm, &has_obs, &settings.plateau);
+    // Plateaus are judged on tissue: the same model run on the weigh-ins minus the fast
+    // glycogen/water weight the food log implies (`fast`), when there is a log to read.
+    let tissue = fast::fast_weight(&data.intake, first, grid_len).map(|f| {
+        let adj: Vec<Option<f64>> = grid_y
+            .iter()
+            .zip(&f)
+            .map(|(y, f)| y.map(|y| y - f))
+            .collect();
+        rts_smoother(kalman_filter(
+            &grid_t,
+            &adj,
+            fit.params,
+            StatePrior::diffuse(days[0].1 - f[0], DIFFUSE_KAPPA),
+            Some(OutlierScreen {
+                z: settings.outlier_z,
+            }),
+        ))
+    });
+    let periods_now = find_periods(&sm, tissue.as_ref(), &has_obs, &settings.plateau);
     let rows = periods_now
         .iter()
         .filter_map(|p| {

@@ -4,8 +4,8 @@
 use chrono::NaiveDate;
 use cohortpress_metric_api::units::{Length, Mass};
 use cohortpress_metric_api::{
-    Cell, MetricModule, ModuleContext, ModuleOutput, ParticipantData, Period, Profile, ProgramInfo,
-    Sex, Targets, UnitSystem, WeighIn,
+    Cell, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData, Period, Profile,
+    ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
 };
 use cohortpress_metric_trend::TrendModule;
 use std::collections::BTreeMap;
@@ -73,6 +73,10 @@ fn participant(weights: &[(i64, f64)]) -> ParticipantData {
 }
 
 fn run(weights: &[(i64, f64)], to: i64) -> ModuleOutput {
+    run_data(&participant(weights), to)
+}
+
+fn run_data(data: &ParticipantData, to: i64) -> ModuleOutput {
     let module = TrendModule;
     let settings = module
         .spec()
@@ -95,7 +99,7 @@ fn run(weights: &[(i64, f64)], to: i64) -> ModuleOutput {
         settings,
         earlier: BTreeMap::new(),
     };
-    module.compute(&ctx, &participant(weights)).unwrap()
+    module.compute(&ctx, data).unwrap()
 }
 
 fn kinds(out: &ModuleOutput) -> Vec<(String, String, String)> {
@@ -413,4 +417,52 @@ fn spec_settings_have_defaults_and_ranges() {
         spec.resolve_settings(&serde_json::json!({"plateau_window_days": 3}))
             .is_err()
     );
+}
+
+/// Water and glycogen refilled by rising intake flatten the scale before tissue loss stops; with
+/// a food log the plateau is dated where tissue loss stopped. The fast weight is built here with
+/// Hall's linearisation (Hall et al. 2011, Lancet 378:826, appendix): κ·(x − 1) with
+/// κ = 3.7·0.5/2 + 4000/3000 kg and x the intake relative to its mean.
+#[test]
+fn water_refilled_by_rising_intake_does_not_start_a_plateau() {
+    let kappa = 3.7 * 0.5 / 2.0 + 4000.0 / 3000.0;
+    // Intake 1500 kcal/d, rising to 2100 over days 60–110, then 2100.
+    let intake = |d: i64| 1500.0 + 600.0 * ((d - 60) as f64 / 50.0).clamp(0.0, 1.0);
+    let days = 170;
+    let mean_intake = (0..days).map(intake).sum::<f64>() / days as f64;
+    // Tissue: −0.8 kg/wk to day 60, −0.3 kg/wk to day 110, then flat.
+    let tissue = |d: i64| {
+        let d = d as f64;
+        90.0 - 0.8 / 7.0 * d.min(60.0) - 0.3 / 7.0 * (d.clamp(60.0, 110.0) - 60.0)
+    };
+    let mut rng = Rng(11);
+    let weights: Vec<(i64, f64)> = (0..days)
+        .map(|d| {
+            let fast = kappa * (intake(d) / mean_intake - 1.0);
+            (d, tissue(d) + fast + 0.2 * rng.normal())
+        })
+        .collect();
+    let onset = |out: &ModuleOutput| {
+        kinds(out)
+            .into_iter()
+            .find(|k| k.0 == "plateau")
+            .map(|k| (NaiveDate::parse_from_str(&k.1, "%Y-%m-%d").unwrap() - day0()).num_days())
+    };
+    // Without a log the refill reads as a stall: weight slope −0.3 + 0.77/50·7 ≈ −0.19 kg/wk,
+    // inside ±0.25 % of ~85 kg per week, from about day 60.
+    let without = onset(&run(&weights, days - 1)).expect("a plateau on the scale");
+    assert!(without < 90, "onset without a log: day {without}");
+    let mut data = participant(&weights);
+    data.intake = (0..days)
+        .map(|d| IntakeDay {
+            date: day(d),
+            kcal: 0.8 * intake(d),
+            carbs_g: None,
+            fat_g: None,
+            protein_g: None,
+            free_sugars_g: None,
+        })
+        .collect();
+    let with = onset(&run_data(&data, days - 1)).expect("a plateau of tissue");
+    assert!((96..=124).contains(&with), "onset with the log: day {with}");
 }

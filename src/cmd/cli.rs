@@ -1,4 +1,4 @@
-//! The command line (clap). Clap types stay in this module; [`crate::runner::RunPlan`] is what
+//! The command line (clap). Clap types stay in this module; [`crate::run::execute::RunPlan`] is what
 //! the rest of the program sees.
 
 use chrono::NaiveDate;
@@ -170,7 +170,7 @@ pub struct RunArgs {
     /// Process only shard K of N (a stable subset chosen by a hash of each participant id) and
     /// write its participant reports and partial results; combine the shards with `merge`.
     #[arg(long, value_name = "K/N", conflicts_with = "incremental")]
-    pub shard: Option<crate::shard::ShardSpec>,
+    pub shard: Option<crate::run::shard::ShardSpec>,
     /// Create output files and folders readable by the owner's group (0640/0750) instead of
     /// owner-only (0600/0700, the default: reports hold health data).
     #[arg(long)]

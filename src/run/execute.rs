@@ -10,21 +10,21 @@
 //! step's summary row, the tidy row, diagnostics and file hashes). Report bytes are dropped as
 //! soon as they are written, so memory grows with the summary rows only. The partial results
 //! are written to `cache/ID.json`, which `--incremental` and `merge` read back
-//! ([`crate::partial`], [`crate::shard`]).
+//! ([`crate::run::partial`], [`crate::run::shard`]).
 
-use crate::cli::{FormatArg, MergeArgs, RunArgs};
+use crate::cmd::cli::{FormatArg, MergeArgs, RunArgs};
 use crate::diag::{Diagnostic, Severity};
 use crate::exit_code;
 use crate::group::{self, GroupOptions, ParticipantSummary};
 use crate::modules::{self, ModuleResults, ModuleSet};
 use crate::output::{Access, OutputScope, OutputSet, OutputTarget, Staging, StagingError};
-use crate::partial::{
-    self, DiagRecord, InputRecord, ParticipantRecord, RunKey, SummaryRecord, TidyRecord,
-};
 use crate::participant::{self, InputFile, ParticipantDir};
 use crate::program::{self, DefaultPeriod, Format, Program};
 use crate::report;
-use crate::shard::{self, ShardFile, ShardSpec};
+use crate::run::partial::{
+    self, DiagRecord, InputRecord, ParticipantRecord, RunKey, SummaryRecord, TidyRecord,
+};
+use crate::run::shard::{self, ShardFile, ShardSpec};
 use crate::tidy;
 use chrono::{Datelike, NaiveDate};
 use cohortpress_metric_api::{ParticipantData, Period};

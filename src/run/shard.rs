@@ -6,18 +6,18 @@
 //! a participant never moves anybody else to another shard.
 //!
 //! A shard's output folder holds the participant reports of its participants, their partial
-//! results (`cache/ID.json`, see [`crate::partial`]) and `shard.json`, which names the shard,
+//! results (`cache/ID.json`, see [`crate::run::partial`]) and `shard.json`, which names the shard,
 //! the run's [`RunKey`], the program-level diagnostics and the participants it processed.
 //! `merge` checks that the shards are 1…N of the same run, copies the reports and partial
 //! results, and then builds the group report, tidy metrics and manifest exactly as a single run
 //! does, so the merged folder equals a single run's byte for byte.
 
-use crate::cli::MergeArgs;
+use crate::cmd::cli::MergeArgs;
 use crate::diag::Diagnostic;
 use crate::exit_code;
 use crate::output::Access;
-use crate::partial::{self, DiagRecord, ParticipantRecord, RunKey};
-use crate::runner::{self, RunError, RunPlan};
+use crate::run::execute::{self, RunError, RunPlan};
+use crate::run::partial::{self, DiagRecord, ParticipantRecord, RunKey};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 use std::str::FromStr;
@@ -208,7 +208,7 @@ pub fn merge_command(args: &MergeArgs) -> i32 {
         Err(e) => return fail(e),
     };
     let key = shards[0].key.clone();
-    let plan = match runner::plan_for_merge(args, &key, shards[0].only.clone()) {
+    let plan = match execute::plan_for_merge(args, &key, shards[0].only.clone()) {
         Ok(p) => p,
         Err(e) => return fail(e),
     };
@@ -244,7 +244,7 @@ fn merge(
     plan: &RunPlan,
     dirs: &[PathBuf],
     shards: &[ShardFile],
-) -> Result<runner::RunSummary, RunError> {
+) -> Result<execute::RunSummary, RunError> {
     let staging = plan.begin_staging()?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();
@@ -276,7 +276,7 @@ fn merge(
             }
             staging.write(&rel, &bytes)?;
             let mut rec = rec;
-            runner::keep_light(&mut rec, &columns);
+            execute::keep_light(&mut rec, &columns);
             records.push(rec);
         }
     }
@@ -298,7 +298,7 @@ fn merge(
         .into_inner()
         .expect("no panics while holding the lock");
     let (summary, _timing) =
-        runner::finish(plan, &templates, staging, &discovery, &records, &columns)?;
+        execute::finish(plan, &templates, staging, &discovery, &records, &columns)?;
     Ok(summary)
 }
 

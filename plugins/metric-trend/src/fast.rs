@@ -1,0 +1,125 @@
+//! The fast part of body weight (glycogen with its water, extracellular fluid) that follows
+//! food intake within days, estimated from the food log so that plateaus are judged on body
+//! tissue rather than on water.
+//!
+//! # Why
+//! In Hall's adult model (Hall et al. 2011, *Lancet* 378:826, web appendix; Hall 2006, *Am J
+//! Physiol Endocrinol Metab* 291:E23) glycogen settles at G = G₀·√(CI/CI₀) within days and the
+//! extracellular fluid at ΔECF = −(ξ_CI/ξ_Na)·(1 − CI/CI₀). When intake drifts up over weeks
+//! (adherence fading), glycogen and water refill and the scale flattens before the loss of fat
+//! and lean tissue has stopped; when intake falls they drain. A plateau is a stall of tissue
+//! loss, so the plateau search subtracts this fast weight before judging the slope.
+//!
+//! # Formula
+//! With the carbohydrate share of intake unchanged, CI/CI₀ = EI/EI₀ = x and the fast weight is
+//! 3.7·G₀·(√x − 1) + (ξ_CI/ξ_Na)·(x − 1) ≈ κ·(x − 1) near x = 1, κ = 3.7·G₀/2 + ξ_CI/ξ_Na ≈
+//! 2.26 kg (G₀ = 0.5 kg, 3.7 kg of weight per kg glycogen, ξ_CI = 4000 mg/d, ξ_Na = 3000 mg/L/d;
+//! Hall et al. 2011 appendix, values from memory). x(t) is read from the log as the mean logged
+//! intake of the 15 days centred on t divided by the mean over all logged days: a constant
+//! under-reporting share cancels in the ratio, and only changes of x matter for slopes.
+
+use chrono::NaiveDate;
+use cohortpress_metric_api::IntakeDay;
+
+/// Fast weight per 100 % change of intake, kg (see the module documentation).
+pub const FAST_KG_PER_RELATIVE_INTAKE: f64 = 3.7 * 0.5 / 2.0 + 4000.0 / 3000.0;
+
+/// Half-width of the centred window over which logged intake is averaged, days.
+const HALF_WINDOW_DAYS: usize = 7;
+/// Logged days a window needs for its mean to be used.
+const MIN_DAYS_IN_WINDOW: usize = 5;
+/// Logged days the whole log needs before any correction is made.
+const MIN_LOGGED_DAYS: usize = 28;
+
+/// Estimated fast weight per grid day (day 0 = `first`, `grid_len` days), kg, relative to the
+/// person's mean logged intake; `None` when the log is too thin to say anything. Days whose
+/// centred window holds too few logged days take the nearest estimated day's value (no
+/// information about a change there, so none is assumed).
+pub fn fast_weight(intake: &[IntakeDay], first: NaiveDate, grid_len: usize) -> Option<Vec<f64>> {
+    let mut kcal: Vec<Option<f64>> = vec![None; grid_len];
+    for d in intake {
+        let Ok(i) = usize::try_from((d.date - first).num_days()) else {
+            continue;
+        };
+        if i >= grid_len || !d.kcal.is_finite() || d.kcal <= 0.0 {
+            continue;
+        }
+        *kcal[i].get_or_insert(0.0) += d.kcal;
+    }
+    let logged: Vec<f64> = kcal.iter().flatten().copied().collect();
+    if logged.len() < MIN_LOGGED_DAYS {
+        return None;
+    }
+    let reference = logged.iter().sum::<f64>() / logged.len() as f64;
+    let mut x: Vec<Option<f64>> = (0..grid_len)
+        .map(|t| {
+            let s = t.saturating_sub(HALF_WINDOW_DAYS);
+            let e = (t + HALF_WINDOW_DAYS).min(grid_len - 1);
+            let w: Vec<f64> = kcal[s..=e].iter().flatten().copied().collect();
+            (w.len() >= MIN_DAYS_IN_WINDOW)
+                .then(|| (w.iter().sum::<f64>() / w.len() as f64 / reference).clamp(0.5, 1.5))
+        })
+        .collect();
+    // Fill the gaps from the nearest estimated day (forward, then the leading gap backward).
+    let mut last = None;
+    for v in x.iter_mut() {
+        match v {
+            Some(_) => last = *v,
+            None => *v = last,
+        }
+    }
+    let first_known = x.iter().flatten().next().copied()?;
+    Some(
+        x.into_iter()
+            .map(|v| FAST_KG_PER_RELATIVE_INTAKE * (v.unwrap_or(first_known) - 1.0))
+            .collect(),
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn day(d: u64) -> NaiveDate {
+        NaiveDate::from_ymd_opt(2027, 1, 4).unwrap() + chrono::Days::new(d)
+    }
+
+    fn log(d: u64, kcal: f64) -> IntakeDay {
+        IntakeDay {
+            date: day(d),
+            kcal,
+            carbs_g: None,
+            fat_g: None,
+            protein_g: None,
+            free_sugars_g: None,
+        }
+    }
+
+    #[test]
+    fn a_rise_in_intake_refills_the_fast_weight_by_kappa_times_the_relative_change() {
+        // 60 days at 1600 kcal, then 60 at 2000: mean 1800, x = 0.889 then 1.111.
+        let logs: Vec<IntakeDay> = (0..120)
+            .map(|d| log(d, if d < 60 { 1600.0 } else { 2000.0 }))
+            .collect();
+        let f = fast_weight(&logs, day(0), 120).unwrap();
+        let k = FAST_KG_PER_RELATIVE_INTAKE;
+        assert!((f[20] - k * (1600.0 / 1800.0 - 1.0)).abs() < 1e-9);
+        assert!((f[100] - k * (2000.0 / 1800.0 - 1.0)).abs() < 1e-9);
+        // The step: 400/1800 of κ ≈ 0.50 kg, spread over the 15-day window.
+        assert!((f[100] - f[20] - 0.502).abs() < 0.01);
+        assert!(f[60] > f[52] && f[60] < f[68]);
+    }
+
+    #[test]
+    fn a_thin_log_gives_no_correction_and_gaps_carry_the_nearest_value() {
+        let logs: Vec<IntakeDay> = (0..20).map(|d| log(d, 1800.0)).collect();
+        assert!(fast_weight(&logs, day(0), 100).is_none());
+        // Logged only in days 0–39; later days carry day 39's window mean.
+        let logs: Vec<IntakeDay> = (0..40)
+            .map(|d| log(d, if d < 20 { 1500.0 } else { 2100.0 }))
+            .collect();
+        let f = fast_weight(&logs, day(0), 100).unwrap();
+        assert_eq!(f[99], f[45]);
+        assert!(f[45] > 0.0 && f[5] < 0.0);
+    }
+}

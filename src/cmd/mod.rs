@@ -1,0 +1,3 @@
+//! Commands: the command line and what each command prints.
+
+pub mod cli;
