@@ -241,6 +241,7 @@ fn publish_in_order(months: &[Vec<Person>], min: u32) -> Vec<Release> {
         let (report, published) = summarize_release(&rows(people), &opts(min), &history);
         history.sums.extend(published.sums);
         history.counts.extend(published.counts);
+        history.count_labels.extend(published.count_labels);
         out.push(Release {
             report: serde_json::to_value(report).unwrap(),
             people: people.clone(),
@@ -453,4 +454,253 @@ fn ranges_contain_the_truth_and_never_pin_a_small_count() {
             }
         }
     }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Counts. The attacker reads every count the reports print (exact or as a range), knows who
+// each one counts (worst case), and works out by exhaustive search over whole numbers what
+// each membership pattern's size can be.
+
+/// A printed count as the attacker reads it: `(lo, hi)`, or `None` when nothing is printed.
+fn read_count(v: &Value) -> Option<(u64, u64)> {
+    if let Some(x) = v.get("value").and_then(Value::as_u64) {
+        return Some((x, x));
+    }
+    match (
+        v.get("at_least").and_then(Value::as_u64),
+        v.get("at_most").and_then(Value::as_u64),
+    ) {
+        (Some(lo), Some(hi)) => Some((lo, hi)),
+        _ => None,
+    }
+}
+
+/// The groups of people of a count attack: each a list of names (the membership patterns the
+/// attacker knows), with their true sizes.
+type Constraint = (Vec<usize>, (u64, u64));
+
+/// Every assignment of whole sizes to the `regions` (0 … `cap` each) meeting the constraints
+/// (each: the regions it covers, printed bounds); for each region, the set of sizes seen.
+fn possible_sizes(regions: usize, cap: u64, cons: &[Constraint]) -> Vec<Vec<u64>> {
+    let mut seen = vec![std::collections::BTreeSet::new(); regions];
+    let mut x = vec![0u64; regions];
+    fn go(
+        i: usize,
+        x: &mut Vec<u64>,
+        cap: u64,
+        cons: &[Constraint],
+        seen: &mut [std::collections::BTreeSet<u64>],
+    ) {
+        if i == x.len() {
+            let ok = cons.iter().all(|(rs, (lo, hi))| {
+                let s: u64 = rs.iter().map(|&r| x[r]).sum();
+                *lo <= s && s <= *hi
+            });
+            if ok {
+                for (r, v) in x.iter().enumerate() {
+                    seen[r].insert(*v);
+                }
+            }
+            return;
+        }
+        for v in 0..=cap {
+            x[i] = v;
+            go(i + 1, x, cap, cons, seen);
+        }
+    }
+    go(0, &mut x, cap, cons, &mut seen);
+    seen.into_iter().map(|s| s.into_iter().collect()).collect()
+}
+
+/// The count attack across releases on "enrolled", "active" and "started" of every section:
+/// the names of every membership pattern of 1 … min − 1 people that the printed figures pin
+/// to fewer than three possible sizes.
+fn count_attack(releases: &[Release], min: u64) -> Vec<Vec<String>> {
+    // Printed counts with the names they count.
+    let mut printed: Vec<(std::collections::BTreeSet<String>, (u64, u64))> = Vec::new();
+    for rel in releases {
+        let mut sections: Vec<(Vec<&Person>, &Value)> =
+            vec![(rel.people.iter().collect(), &rel.report["program"]["stats"])];
+        for split in rel.report["splits"].as_array().unwrap() {
+            for sec in split["sections"].as_array().unwrap() {
+                let label = sec["label"].as_str().unwrap();
+                let who = rel
+                    .people
+                    .iter()
+                    .filter(|p| p.row.groups.get("site").map(String::as_str) == Some(label))
+                    .collect();
+                sections.push((who, &sec["stats"]));
+            }
+        }
+        for (who, st) in sections {
+            if st.is_null() {
+                continue;
+            }
+            let e = &st["enrolment"];
+            let sets: [(&Value, Box<dyn Fn(&Person) -> bool>); 3] = [
+                (&e["enrolled"], Box::new(|_| true)),
+                (&e["active"], Box::new(|p: &Person| !p.row.withdrawn)),
+                (&e["started"], Box::new(|p: &Person| p.row.started)),
+            ];
+            for (v, member) in sets {
+                if let Some(b) = read_count(v) {
+                    let names = who
+                        .iter()
+                        .filter(|p| member(p))
+                        .map(|p| p.name.clone())
+                        .collect();
+                    printed.push((names, b));
+                }
+            }
+        }
+    }
+    // Membership patterns.
+    let everyone: std::collections::BTreeSet<&String> =
+        printed.iter().flat_map(|(s, _)| s.iter()).collect();
+    let mut patterns: BTreeMap<Vec<bool>, Vec<String>> = BTreeMap::new();
+    for name in everyone {
+        let pat = printed.iter().map(|(s, _)| s.contains(name)).collect();
+        patterns.entry(pat).or_default().push(name.clone());
+    }
+    let regions: Vec<(Vec<bool>, Vec<String>)> = patterns.into_iter().collect();
+    assert!(
+        regions.len() <= 4,
+        "the exhaustive attacker is for small pictures"
+    );
+    let cons: Vec<Constraint> = printed
+        .iter()
+        .enumerate()
+        .map(|(j, (_, b))| {
+            let rs = (0..regions.len()).filter(|&r| regions[r].0[j]).collect();
+            (rs, *b)
+        })
+        .collect();
+    let cap = regions.iter().map(|r| r.1.len() as u64).max().unwrap_or(0) + 3;
+    let sizes = possible_sizes(regions.len(), cap, &cons);
+    regions
+        .iter()
+        .zip(sizes)
+        .filter(|((_, names), s)| {
+            let n = names.len() as u64;
+            n < min && s.len() < 3 && s.contains(&n)
+        })
+        .map(|((_, names), _)| names.clone())
+        .collect()
+}
+
+/// Groups for the three-release attack: A (3 people), B and C (20 each), one site.
+fn unions() -> [Vec<Person>; 3] {
+    let group = |prefix: &str, n: usize| -> Vec<Person> {
+        (0..n)
+            .map(|i| person(&format!("{prefix}{i:02}"), "Kiln Row", -6.0, true, -3.0))
+            .collect()
+    };
+    let (a, b, c) = (group("A", 3), group("B", 20), group("C", 20));
+    let join = |x: &[Person], y: &[Person]| [x, y].concat();
+    [join(&a, &b), join(&b, &c), join(&a, &c)]
+}
+
+#[test]
+fn three_releases_whose_pairs_hide_a_small_group_do_not_give_it_away_together() {
+    // Issued in turn: A∪B (23), B∪C (40), A∪C (23). No two of them isolate fewer than 11
+    // people (their differences are 23 or 40), but the three give A = (23 + 40 + 23)/2 − 40.
+    let min = 11;
+    let months = unions();
+    let open = unprotected(&months, min);
+    for pair in [[0, 1], [0, 2], [1, 2]] {
+        let two = [&open[pair[0]], &open[pair[1]]].map(|r| Release {
+            report: r.report.clone(),
+            people: r.people.clone(),
+        });
+        assert_eq!(
+            count_attack(&two, u64::from(min)),
+            Vec::<Vec<String>>::new()
+        );
+    }
+    assert_eq!(
+        count_attack(&open, u64::from(min)),
+        vec![vec!["A00".to_string(), "A01".into(), "A02".into()]],
+        "the three unprotected releases give A (the attack is real)"
+    );
+    let rel = publish_in_order(&months, min);
+    assert_eq!(
+        count_attack(&rel, u64::from(min)),
+        Vec::<Vec<String>>::new()
+    );
+    // The first two releases are untouched by the third; the third says why it holds back.
+    for r in &rel[..2] {
+        assert!(r.report["program"]["stats"]["enrolment"]["enrolled"]["value"].is_u64());
+    }
+    let audit = rel[2].report["audit"].as_array().unwrap();
+    assert!(
+        audit
+            .iter()
+            .any(|n| n["rule"].as_str().unwrap().contains("earlier reports")),
+        "{audit:?}"
+    );
+}
+
+#[test]
+fn counts_of_people_with_data_do_not_give_the_few_without_by_subtraction() {
+    // 30 people, 3 of them without activity data and 2 without a plateau verdict: "enrolled"
+    // minus "with activity data" would be 3, and "enrolled" minus "with a verdict" 2.
+    let min = 11u64;
+    let mut month = cohort(30, &["Kiln Row"], &[], 9);
+    for (i, p) in month.iter_mut().enumerate() {
+        p.row.activity_minutes_per_week = (i >= 3).then_some(120.0 + i as f64);
+        p.row.weigh_ins_per_week = Some(3.0);
+        p.row.in_plateau = (i >= 2).then_some(i % 2 == 0);
+    }
+    // What the attacker subtracts, per section: enrolled − with activity data, enrolled −
+    // with a plateau verdict; true sizes 3 and 2.
+    let derived = |report: &Value| -> Vec<(&'static str, u64, u64)> {
+        let mut out = Vec::new();
+        let mut sections = vec![&report["program"]["stats"]];
+        for split in report["splits"].as_array().unwrap() {
+            for sec in split["sections"].as_array().unwrap() {
+                sections.push(&sec["stats"]);
+            }
+        }
+        for st in sections.into_iter().filter(|s| !s.is_null()) {
+            let Some((elo, ehi)) = read_count(&st["enrolment"]["enrolled"]) else {
+                continue;
+            };
+            for (what, v) in [
+                (
+                    "activity",
+                    &st["adherence"]["activity_minutes_per_week"]["n"],
+                ),
+                ("verdict", &st["plateau"]["with_verdict"]),
+            ] {
+                if let Some((lo, hi)) = read_count(v) {
+                    out.push((what, elo.saturating_sub(hi), ehi.saturating_sub(lo)));
+                }
+            }
+        }
+        out
+    };
+    let leaks = |report: &Value| {
+        derived(report)
+            .into_iter()
+            .filter(|&(_, lo, hi)| hi < lo + 2 && lo < min)
+            .collect::<Vec<_>>()
+    };
+    let open = unprotected(std::slice::from_ref(&month), min as u32);
+    assert_eq!(
+        leaks(&open[0].report),
+        vec![
+            ("activity", 3, 3),
+            ("verdict", 2, 2),
+            ("activity", 3, 3),
+            ("verdict", 2, 2)
+        ],
+        "unprotected, the program and its one site give both groups"
+    );
+    let rel = publish_in_order(&[month], min as u32);
+    assert_eq!(leaks(&rel[0].report), Vec::new());
+    // The program's enrolled count itself stays printed.
+    assert_eq!(
+        rel[0].report["program"]["stats"]["enrolment"]["enrolled"]["value"],
+        30
+    );
 }

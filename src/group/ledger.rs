@@ -40,6 +40,9 @@ pub struct ReleaseRecord {
     pub headline: ReleaseLine,
     /// Exact counts: person tokens counted.
     pub counts: Vec<Vec<u64>>,
+    /// The plain name of each count (aligned with `counts`; empty in older ledgers).
+    #[serde(default)]
+    pub count_labels: Vec<String>,
     /// Sums: (person token, value key) pairs.
     pub sums: Vec<Vec<(u64, u64)>>,
 }
@@ -57,6 +60,37 @@ pub fn default_dir(out_dir: &Path) -> PathBuf {
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_else(|| "reports".into());
     out_dir.with_file_name(format!("{name}.ledger"))
+}
+
+/// The ledger folder of a run: `--state DIR` when given (relative to the working folder), else
+/// `report.state_dir` of program.yaml (relative to the program folder), else
+/// [`default_dir`]. Refused (with the reason) when it would be inside the program's inputs or
+/// inside the output folder.
+pub fn resolve_dir(
+    cli: Option<&Path>,
+    program: &crate::program::Program,
+    out_dir: &Path,
+) -> Result<PathBuf, String> {
+    let cwd = std::env::current_dir().unwrap_or_default();
+    let (dir, named_by) = match (cli, &program.def.report.state_dir) {
+        (Some(d), _) => (cwd.join(d), "--state"),
+        (None, Some(d)) => (cwd.join(&program.root).join(d), "report.state_dir"),
+        (None, None) => return Ok(default_dir(out_dir)),
+    };
+    let root = cwd.join(&program.root);
+    let out = cwd.join(out_dir);
+    match crate::program::load::state_dir_problem(
+        &root,
+        &dir,
+        program.def.report.templates.as_deref(),
+        &out,
+    ) {
+        Some(why) => Err(format!(
+            "{named_by} {}: the ledger folder would be {why}",
+            dir.display()
+        )),
+        None => Ok(dir),
+    }
 }
 
 fn io_err(path: &Path, e: impl std::fmt::Display) -> std::io::Error {
@@ -117,6 +151,12 @@ impl Ledger {
         };
         for r in self.releases.iter().filter(|r| r.program == program) {
             h.counts.extend(r.counts.iter().cloned());
+            if r.count_labels.len() == r.counts.len() {
+                h.count_labels.extend(r.count_labels.iter().cloned());
+            } else {
+                h.count_labels
+                    .extend(std::iter::repeat_n(String::new(), r.counts.len()));
+            }
             h.sums.extend(r.sums.iter().cloned());
         }
         h
@@ -172,6 +212,7 @@ pub fn release_record(
         as_of: as_of.into(),
         headline,
         counts: published.counts,
+        count_labels: published.count_labels,
         sums: published.sums,
     }
 }

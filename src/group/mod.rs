@@ -22,6 +22,7 @@ pub mod shown;
 pub mod stats;
 pub mod summary;
 pub mod suppress;
+pub mod venn;
 
 #[cfg(test)]
 mod attack_tests;
@@ -85,6 +86,10 @@ pub struct History {
     pub sums: Vec<Vec<(u64, u64)>>,
     /// Counts published before: per count, the person tokens it counted.
     pub counts: Vec<Vec<u64>>,
+    /// What each of `counts` counted (the figure's plain name, e.g. "enrolled"), aligned with
+    /// `counts`; an empty name (a ledger written before names were kept) joins every family
+    /// of the audit across releases.
+    pub count_labels: Vec<String>,
 }
 
 /// What a release publishes as exact figures, in the form [`History`] keeps (for the ledger).
@@ -94,6 +99,8 @@ pub struct Published {
     pub sums: Vec<Vec<(u64, u64)>>,
     /// Every shown count: the person tokens it counted.
     pub counts: Vec<Vec<u64>>,
+    /// The plain name of each of `counts` (aligned).
+    pub count_labels: Vec<String>,
 }
 
 /// Options of the group step (from the program's report and privacy settings).

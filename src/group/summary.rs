@@ -33,6 +33,7 @@ use super::audit;
 use super::shown::{Interval, Shown};
 use super::stats;
 use super::suppress::{CellId, CellTable};
+use super::venn;
 use super::{GroupOptions, History, ParticipantSummary, Published};
 
 /// Loss thresholds (% of baseline weight) of the milestone lines (REFERENCE §8.3).
@@ -897,7 +898,8 @@ pub(super) fn build(
                 .filter(|d| d.shown() && d.raw.is_some())
         };
         // Counts: cell suppression and the interval audit within this release, then the
-        // differences with every count published before; repeated until nothing changes.
+        // differences with every count published before, then the audit of each figure's
+        // family across releases; repeated until nothing changes.
         let prior_counts: BTreeSet<BTreeSet<u64>> = history
             .counts
             .iter()
@@ -909,8 +911,15 @@ pub(super) fn build(
                 .map(|m| m.iter().map(|&i| tokens[i]).collect())
                 .unwrap_or_default()
         };
+        link_nested_counts(&mut table, drafts_of(), enrolled.len(), min);
+        let mut no_range: BTreeSet<CellId> = BTreeSet::new();
+        let mut budget = venn::Caps::default().max_solves;
+        let mut gave_up: BTreeSet<String> = BTreeSet::new();
         loop {
             ranges = table.apply_with_ranges(min);
+            for &c in &no_range {
+                ranges[c] = None;
+            }
             let mut changed = false;
             for d in drafts_of() {
                 let raw = d.raw.as_ref().expect("filtered");
@@ -939,6 +948,137 @@ pub(super) fn build(
                                  people"
                             ),
                         });
+                    }
+                }
+            }
+            if changed || history.counts.is_empty() {
+                if changed {
+                    continue;
+                }
+                break;
+            }
+            // Every figure's family across releases (see `venn`).
+            let mut families: BTreeMap<String, Vec<venn::FamilySet>> = BTreeMap::new();
+            let mut where_is: HashMap<CellId, (String, Kind)> = HashMap::new();
+            for d in drafts_of() {
+                let raw = d.raw.as_ref().expect("filtered");
+                for (&k, &c) in &d.cells {
+                    if k == Kind::Flags {
+                        continue;
+                    }
+                    let bound = if !table.is_suppressed(c) {
+                        venn::Bound::Exact(raw.count(k))
+                    } else if let Some((lo, hi)) = ranges[c] {
+                        venn::Bound::Range(lo, hi)
+                    } else {
+                        continue;
+                    };
+                    where_is.insert(c, (d.label.clone(), k));
+                    families.entry(k.name()).or_default().push(venn::FamilySet {
+                        people: members_of(raw, k).into_iter().collect(),
+                        bound,
+                        current: Some(c),
+                    });
+                }
+            }
+            let flags = Kind::Flags.name();
+            for (name, family) in &mut families {
+                let mut seen: BTreeSet<&Vec<u64>> = BTreeSet::new();
+                for (set, label) in history.counts.iter().zip(
+                    history
+                        .count_labels
+                        .iter()
+                        .map(String::as_str)
+                        .chain(std::iter::repeat("")),
+                ) {
+                    if (label == name || (label.is_empty() && *name != flags)) && seen.insert(set) {
+                        family.push(venn::FamilySet {
+                            people: set.clone(),
+                            bound: venn::Bound::Exact(set.len() as u64),
+                            current: None,
+                        });
+                    }
+                }
+            }
+            let caps = venn::Caps::default();
+            for (name, family) in &families {
+                if family.iter().all(|s| s.current.is_some()) || gave_up.contains(name) {
+                    continue;
+                }
+                match venn::audit(family, min, &caps, &mut budget) {
+                    venn::Outcome::Clean => {}
+                    venn::Outcome::Leaks(leaks) => {
+                        for leak in leaks {
+                            let shown: Vec<CellId> = leak
+                                .blame
+                                .iter()
+                                .copied()
+                                .filter(|&c| !table.is_suppressed(c))
+                                .collect();
+                            let hide = shown.iter().copied().min_by_key(|&c| {
+                                let touching = leak.blame.iter().position(|&b| b == c);
+                                (table.priority(c), touching)
+                            });
+                            if let Some(c) = hide {
+                                table.force_hide(c);
+                                changed = true;
+                                let (section, k) = where_is[&c].clone();
+                                audit_notes.push(AuditNote {
+                                    section,
+                                    figure: k.name(),
+                                    rule: format!(
+                                        "Shown only as a range, because combined with counts in \
+                                         earlier reports it would give the number of fewer than \
+                                         {min} people"
+                                    ),
+                                });
+                            } else if let Some(&c) =
+                                leak.blame.iter().find(|c| !no_range.contains(c))
+                            {
+                                no_range.insert(c);
+                                changed = true;
+                                let (section, k) = where_is[&c].clone();
+                                audit_notes.push(AuditNote {
+                                    section,
+                                    figure: k.name(),
+                                    rule: format!(
+                                        "Not shown, not even as a range, because combined with \
+                                         counts in earlier reports the range would give the \
+                                         number of fewer than {min} people"
+                                    ),
+                                });
+                            }
+                            if changed {
+                                // One change per family and pass: the next pass re-audits.
+                                break;
+                            }
+                        }
+                    }
+                    venn::Outcome::GaveUp(why) => {
+                        // Fail safe: publish nothing new from this family.
+                        gave_up.insert(name.clone());
+                        for s in family {
+                            let Some(c) = s.current else { continue };
+                            let repeat = prior_counts.contains(&s.people.iter().copied().collect());
+                            if !table.is_suppressed(c) && !repeat {
+                                table.force_hide(c);
+                                changed = true;
+                            }
+                            if table.is_suppressed(c) {
+                                no_range.insert(c);
+                                changed = true;
+                            }
+                            let (section, k) = where_is[&c].clone();
+                            audit_notes.push(AuditNote {
+                                section,
+                                figure: k.name(),
+                                rule: format!(
+                                    "Not shown: the audit against earlier reports stopped at \
+                                     its work limit ({why}), and what it could not check is \
+                                     not published"
+                                ),
+                            });
+                        }
                     }
                 }
             }
@@ -1039,6 +1179,7 @@ pub(super) fn build(
                 let set = members_of(raw, k);
                 if !table.is_suppressed(c) && !set.is_empty() {
                     published.counts.push(set.into_iter().collect());
+                    published.count_labels.push(k.name());
                 }
             }
         }
@@ -1076,6 +1217,85 @@ pub(super) fn build(
             .collect(),
     };
     (report, published)
+}
+
+/// Links every pair of counts of the release whose people are nested and whose difference is
+/// 1 … min − 1 (found from who is counted, not from the figures' names: "enrolled" and "with
+/// activity data", "started" and "with a value in week 3", a site's count and the program's)
+/// by the relation `outer = inner + difference`, so that the suppression and the range audit
+/// protect the difference like any printed count. The difference is an existing cell when one
+/// counts exactly those people, else a hidden cell that is never printed
+/// ([`CellTable::add_difference`]). Pairs whose relation the table already has are skipped.
+fn link_nested_counts<'a>(
+    table: &mut CellTable,
+    drafts: impl Iterator<Item = &'a Draft>,
+    people: usize,
+    min: u32,
+) {
+    let words = people.div_ceil(64).max(1);
+    let mut cells: Vec<(usize, CellId, Vec<u64>, u64)> = Vec::new();
+    for (section, d) in drafts.enumerate() {
+        let raw = d.raw.as_ref().expect("shown sections have figures");
+        for (&k, &c) in &d.cells {
+            // The flags cell counts flags, not people.
+            if k == Kind::Flags {
+                continue;
+            }
+            let mut bits = vec![0u64; words];
+            for &i in raw.members.get(&k).into_iter().flatten() {
+                bits[i / 64] |= 1 << (i % 64);
+            }
+            cells.push((section, c, bits, raw.count(k)));
+        }
+    }
+    let mut by_set: HashMap<Vec<u64>, CellId> = HashMap::new();
+    for (_, c, bits, _) in &cells {
+        by_set.entry(bits.clone()).or_insert(*c);
+    }
+    let mut known: BTreeSet<(CellId, Vec<CellId>)> = table
+        .relations()
+        .iter()
+        .map(|r| {
+            let mut parts = r.parts.clone();
+            parts.sort_unstable();
+            (r.total, parts)
+        })
+        .collect();
+    let min = u64::from(min);
+    for (sa, a, abits, an) in &cells {
+        // Within a section: a site's count against the program's differs by the other
+        // sites' people, which the program = Σ sites relations already protect.
+        for (_, b, bbits, bn) in cells.iter().filter(|c| c.0 == *sa) {
+            let Some(d) = an.checked_sub(*bn) else {
+                continue;
+            };
+            if d == 0 || d >= min || *bn == 0 {
+                continue;
+            }
+            let nested = abits.iter().zip(bbits).all(|(x, y)| y & !x == 0);
+            if !nested {
+                continue;
+            }
+            let diff: Vec<u64> = abits.iter().zip(bbits).map(|(x, y)| x & !y).collect();
+            let (outer, inner) = (*a, *b);
+            match by_set.get(&diff) {
+                Some(&e) => {
+                    let mut parts = vec![inner, e];
+                    parts.sort_unstable();
+                    if known.insert((outer, parts)) {
+                        table.add_relation(outer, vec![inner, e]);
+                    }
+                }
+                None => {
+                    let e = table.add_difference(outer, inner);
+                    by_set.insert(diff, e);
+                    let mut parts = vec![inner, e];
+                    parts.sort_unstable();
+                    known.insert((outer, parts));
+                }
+            }
+        }
+    }
 }
 
 /// A weight-change line or week point the sum audit can withhold.

@@ -33,6 +33,10 @@ struct Cell {
     suppressed: bool,
     /// A primary cell whose "1 to min − 1" bound is not printed (see `apply_with_ranges`).
     unbounded: bool,
+    /// Never printed, but derivable in principle: the difference of two printed counts whose
+    /// people are nested (see [`CellTable::add_difference`]). Always hidden, never a
+    /// complement, and never given a printed "1 to min − 1" bound.
+    phantom: bool,
 }
 
 /// One additive relation `total = Σ parts` between cells.
@@ -70,8 +74,35 @@ impl CellTable {
             priority,
             suppressed: false,
             unbounded: false,
+            phantom: false,
         });
         self.cells.len() - 1
+    }
+
+    /// Links two cells whose people are nested (`inner`'s people are all counted in `outer`)
+    /// by a hidden difference cell, `outer = inner + difference`, so that the difference — a
+    /// count of people a reader gets by subtraction ("enrolled" minus "with adherence data")
+    /// — is protected like any other count. The difference cell is never printed.
+    ///
+    /// # Panics
+    /// If `inner` is larger than `outer`.
+    pub fn add_difference(&mut self, outer: CellId, inner: CellId) -> CellId {
+        let value = self.cells[outer].value - self.cells[inner].value;
+        self.cells.push(Cell {
+            value,
+            priority: 0,
+            suppressed: true,
+            unbounded: true,
+            phantom: true,
+        });
+        let d = self.cells.len() - 1;
+        self.add_relation(outer, vec![inner, d]);
+        d
+    }
+
+    /// The complement rank given to a cell.
+    pub fn priority(&self, c: CellId) -> u8 {
+        self.cells[c].priority
     }
 
     /// Adds the relation `total = Σ parts`.
@@ -122,7 +153,7 @@ impl CellTable {
     /// suppression), so that "1 to min − 1" may be printed for it.
     pub fn is_primary(&self, c: CellId, min_cell_size: u32) -> bool {
         let v = self.cells[c].value;
-        self.cells[c].suppressed && v >= 1 && v < u64::from(min_cell_size)
+        self.cells[c].suppressed && !self.cells[c].phantom && v >= 1 && v < u64::from(min_cell_size)
     }
 
     /// Suppression plus the interval audit: [`CellTable::apply`], then the range every hidden

@@ -9,7 +9,7 @@ use crate::diag::Diagnostic;
 use chrono::NaiveDate;
 use cohortpress_metric_api::{ProgramInfo, Targets};
 use std::collections::{BTreeMap, BTreeSet};
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// The program file's name, relative to the program folder (as diagnostics show it).
 pub const PROGRAM_FILE: &str = "program.yaml";
@@ -60,6 +60,49 @@ pub fn parse_program(root: &Path, text: &str) -> Result<Program, Vec<Diagnostic>
         info,
         module_lines,
     })
+}
+
+/// A path with `.` and `..` resolved lexically (the folder may not exist yet).
+pub fn lexical(path: &Path) -> PathBuf {
+    use std::path::Component;
+    let mut out = PathBuf::new();
+    for c in path.components() {
+        match c {
+            Component::CurDir => {}
+            Component::ParentDir => {
+                if !out.pop() {
+                    out.push("..");
+                }
+            }
+            other => out.push(other.as_os_str()),
+        }
+    }
+    out
+}
+
+/// Why a ledger (state) folder is not allowed where it is, if it is not: inside the program's
+/// inputs (`participants/`, the templates folder), the program folder itself, or inside the
+/// output folder (replaced by every run). `state`, `templates` and `out` are relative to
+/// `root` or absolute.
+pub fn state_dir_problem(
+    root: &Path,
+    state: &Path,
+    templates: Option<&Path>,
+    out: &Path,
+) -> Option<String> {
+    let state = lexical(&root.join(state));
+    let inside = |dir: &Path| state.starts_with(lexical(&root.join(dir)));
+    if inside(Path::new("participants")) {
+        Some("inside participants/, among the inputs".into())
+    } else if templates.is_some_and(inside) {
+        Some("inside the templates folder, among the inputs".into())
+    } else if state == lexical(root) {
+        Some("the program folder itself".into())
+    } else if inside(out) {
+        Some("inside the output folder, which every run replaces".into())
+    } else {
+        None
+    }
 }
 
 /// Semantic checks on a parsed program; returns every problem found.
@@ -155,6 +198,21 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                     .hint("give a folder relative to the program folder, or remove the key to use the built-in templates"),
             );
         }
+    }
+    if let Some(state) = &def.report.state_dir
+        && let Some(why) = state_dir_problem(
+            root,
+            state,
+            def.report.templates.as_deref(),
+            &def.report.out,
+        )
+    {
+        out.push(
+            err("report.state_dir", format!("the ledger folder would be {why}"))
+                .found(state.display().to_string())
+                .expected("a folder outside participants/, the templates folder and the output folder")
+                .hint("the ledger must never sit among the inputs; remove the key to keep it beside the output as `<out>.ledger`"),
+        );
     }
     for (i, g) in def.report.group_by.iter().enumerate() {
         if g.trim().is_empty() {

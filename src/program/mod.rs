@@ -199,6 +199,12 @@ pub struct ReportDef {
     /// Output folder, relative to the program folder (default `reports`).
     #[serde(default = "default_out")]
     pub out: PathBuf,
+    /// State folder of the group-report ledger (what earlier group reports published),
+    /// relative to the program folder. Default: the output folder's name plus `.ledger`,
+    /// beside it. Never inside the program's inputs (`participants/`, the templates folder)
+    /// nor inside the output folder; `--state DIR` on the command line wins.
+    #[serde(default)]
+    pub state_dir: Option<PathBuf>,
 }
 
 fn default_formats() -> Vec<Format> {
@@ -217,6 +223,7 @@ impl Default for ReportDef {
             templates: None,
             group_by: Vec::new(),
             out: default_out(),
+            state_dir: None,
         }
     }
 }

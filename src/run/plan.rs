@@ -231,10 +231,8 @@ pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
         return Err(usage("--jobs must be at least 1".into()));
     }
     let key = run_key(&program, &modules, period, as_of, &formats)?;
-    let state_dir = args
-        .state
-        .clone()
-        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
+    let state_dir =
+        group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir).map_err(usage)?;
     Ok(RunPlan {
         program,
         modules,
@@ -287,10 +285,8 @@ pub fn plan_for_merge(
         None => (program.root.join(&program.def.report.out), "report.out"),
     };
     let key = run_key(&program, &modules, period, as_of, &formats)?;
-    let state_dir = args
-        .state
-        .clone()
-        .unwrap_or_else(|| group::ledger::default_dir(&out_dir));
+    let state_dir =
+        group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir).map_err(usage)?;
     Ok(RunPlan {
         program,
         modules,

@@ -10,6 +10,7 @@ mod guidance;
 mod harness;
 mod hostile;
 mod layering;
+mod ledger;
 mod operation;
 mod reports;
 mod sample_program;

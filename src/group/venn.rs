@@ -1,0 +1,378 @@
+//! The count audit across releases: every count a family of published figures gives, as
+//! linear constraints on the number of people in each membership pattern.
+//!
+//! A *family* is a list of published counts, each the set of people it counted (as keyed
+//! person tokens) with what a reader knows of its size: the exact value, a printed range, or
+//! nothing. People are grouped by *membership pattern* (which of the family's sets count them:
+//! one region of the Venn diagram of all the sets); the unknowns are the regions' sizes
+//! `x_r ≥ 0`, and each set gives `lo ≤ Σ_{r ⊆ set} x_r ≤ hi`.
+//!
+//! The reader is assumed to know which patterns are empty (worst case: they know who is in
+//! which site and who joined or left), so the regions are only the patterns that occur. A
+//! *target* is a group of people a reader could try to isolate: every region, and every
+//! difference `A \ B` of two sets of the family of which at least one is from the new release.
+//! A target whose true size is 1 … min − 1 is *derivable* when the linear program (microlp 0.7,
+//! simplex; min and max of its size) narrows it to fewer than three whole numbers. A target
+//! already derivable from the earlier releases alone is not the new release's doing and is
+//! not reported.
+//!
+//! Work caps ([`Caps`]): families with more sets or regions than the caps, or an audit that
+//! would solve more programs than its budget, are not audited but reported as
+//! [`Outcome::GaveUp`]; the caller then withholds every new figure of the family (it never
+//! publishes what it could not audit).
+
+use std::collections::{BTreeMap, HashMap};
+
+use microlp::{ComparisonOp, OptimizationDirection, Problem, SolveOutcome};
+
+/// What a reader knows about the size of one set.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Bound {
+    /// Printed exactly.
+    Exact(u64),
+    /// Printed as a range (inclusive).
+    Range(u64, u64),
+}
+
+impl Bound {
+    fn lo_hi(self) -> (f64, f64) {
+        match self {
+            Bound::Exact(v) => (v as f64, v as f64),
+            Bound::Range(lo, hi) => (lo as f64, hi as f64),
+        }
+    }
+}
+
+/// One published count of a family.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FamilySet {
+    /// The people counted (person tokens; any order, no repeats).
+    pub people: Vec<u64>,
+    /// What is printed about its size.
+    pub bound: Bound,
+    /// The caller's handle for a figure of the new release; `None` for an earlier release.
+    pub current: Option<usize>,
+}
+
+/// Limits on the work of one audit call.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Caps {
+    /// Most sets in one family.
+    pub max_sets: usize,
+    /// Most regions (distinct membership patterns) in one family.
+    pub max_regions: usize,
+    /// Most linear programs solved (shared by every family of a release).
+    pub max_solves: usize,
+}
+
+impl Default for Caps {
+    /// 400 sets (e.g. 24 monthly issues of 16 sections), 600 regions, 20 000 solves: chosen
+    /// so that the audit of one release stays within seconds (see BENCHMARKS.md) while a
+    /// two-year programme of monthly issues fits inside.
+    fn default() -> Self {
+        Caps {
+            max_sets: 400,
+            max_regions: 600,
+            max_solves: 20_000,
+        }
+    }
+}
+
+/// One derivable small group found by the audit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Leak {
+    /// True size of the group (1 … min − 1).
+    pub size: u64,
+    /// Smallest and largest size a reader can derive.
+    pub derived: (u64, u64),
+    /// New-release figures whose sets share people with the group, then the other figures of
+    /// the new release in the family (the caller's handles).
+    pub blame: Vec<usize>,
+}
+
+/// Result of auditing one family.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Outcome {
+    /// Nothing derivable that the earlier releases did not already give.
+    Clean,
+    /// These groups are derivable because of the new release's figures.
+    Leaks(Vec<Leak>),
+    /// A cap was reached: nothing may be published from the family's new figures.
+    GaveUp(String),
+}
+
+/// Audits one family (see the module documentation). `budget` is decreased by the number of
+/// linear programs solved.
+pub fn audit(sets: &[FamilySet], min_cell_size: u32, caps: &Caps, budget: &mut usize) -> Outcome {
+    let min = u64::from(min_cell_size);
+    let sets: Vec<&FamilySet> = sets.iter().filter(|s| !s.people.is_empty()).collect();
+    if sets.len() > caps.max_sets {
+        return Outcome::GaveUp(format!("{} sets (cap {})", sets.len(), caps.max_sets));
+    }
+    if min <= 1 || !sets.iter().any(|s| s.current.is_some()) {
+        return Outcome::Clean;
+    }
+    // Membership patterns.
+    let words = sets.len().div_ceil(64);
+    let mut pattern: HashMap<u64, Vec<u64>> = HashMap::new();
+    for (j, s) in sets.iter().enumerate() {
+        for &p in &s.people {
+            pattern.entry(p).or_insert_with(|| vec![0; words])[j / 64] |= 1 << (j % 64);
+        }
+    }
+    let mut region_of: BTreeMap<Vec<u64>, usize> = BTreeMap::new();
+    let mut size: Vec<u64> = Vec::new();
+    let mut person_region: HashMap<u64, usize> = HashMap::new();
+    let mut people: Vec<(&u64, &Vec<u64>)> = pattern.iter().collect();
+    people.sort();
+    for (p, pat) in people {
+        let next = region_of.len();
+        let r = *region_of.entry(pat.clone()).or_insert(next);
+        if r == size.len() {
+            size.push(0);
+        }
+        size[r] += 1;
+        person_region.insert(*p, r);
+    }
+    if size.len() > caps.max_regions {
+        return Outcome::GaveUp(format!("{} regions (cap {})", size.len(), caps.max_regions));
+    }
+    // Regions of each set.
+    let mut regions_of_set: Vec<Vec<usize>> = vec![Vec::new(); sets.len()];
+    for (pat, &r) in &region_of {
+        for (j, rs) in regions_of_set.iter_mut().enumerate() {
+            if pat[j / 64] >> (j % 64) & 1 == 1 {
+                rs.push(r);
+            }
+        }
+    }
+    // Targets: small regions, and small differences A \ B with A or B new.
+    let mut targets: BTreeMap<Vec<usize>, u64> = BTreeMap::new();
+    for (r, &n) in size.iter().enumerate() {
+        if n < min {
+            targets.insert(vec![r], n);
+        }
+    }
+    for (a, sa) in sets.iter().enumerate() {
+        for (b, sb) in sets.iter().enumerate() {
+            if a == b || (sa.current.is_none() && sb.current.is_none()) {
+                continue;
+            }
+            let in_b: std::collections::HashSet<usize> =
+                regions_of_set[b].iter().copied().collect();
+            let diff: Vec<usize> = regions_of_set[a]
+                .iter()
+                .copied()
+                .filter(|r| !in_b.contains(r))
+                .collect();
+            let n: u64 = diff.iter().map(|&r| size[r]).sum();
+            if n >= 1 && n < min {
+                targets.insert(diff, n);
+            }
+        }
+    }
+    let all: Vec<usize> = (0..sets.len()).collect();
+    let old: Vec<usize> = all
+        .iter()
+        .copied()
+        .filter(|&j| sets[j].current.is_none())
+        .collect();
+    let mut leaks = Vec::new();
+    for (target, n) in targets {
+        if *budget < 4 {
+            return Outcome::GaveUp("the audit's budget of linear programs is spent".into());
+        }
+        *budget -= 2;
+        let Some(derived) = range(&target, &all, &regions_of_set, &sets, size.len()) else {
+            return Outcome::GaveUp("a linear program could not be solved".into());
+        };
+        if derived.1 >= derived.0 + 2 {
+            continue;
+        }
+        // Already derivable before this release?
+        *budget -= 2;
+        if let Some(before) = range(&target, &old, &regions_of_set, &sets, size.len())
+            && before.1 < before.0 + 2
+        {
+            continue;
+        }
+        let mut touching = Vec::new();
+        let mut others = Vec::new();
+        for (j, s) in sets.iter().enumerate() {
+            if let Some(h) = s.current {
+                if target.iter().any(|r| regions_of_set[j].contains(r)) {
+                    touching.push(h);
+                } else {
+                    others.push(h);
+                }
+            }
+        }
+        touching.extend(others);
+        leaks.push(Leak {
+            size: n,
+            derived,
+            blame: touching,
+        });
+    }
+    if leaks.is_empty() {
+        Outcome::Clean
+    } else {
+        Outcome::Leaks(leaks)
+    }
+}
+
+/// Smallest and largest whole size of the union of `target` regions under the constraints of
+/// the sets `using`; `None` when a program cannot be solved (treated as a failure).
+fn range(
+    target: &[usize],
+    using: &[usize],
+    regions_of_set: &[Vec<usize>],
+    sets: &[&FamilySet],
+    nregions: usize,
+) -> Option<(u64, u64)> {
+    let solve = |dir: OptimizationDirection| -> Option<f64> {
+        let mut p = Problem::new(dir);
+        let vars: Vec<microlp::Variable> = (0..nregions)
+            .map(|r| {
+                let coef = if target.contains(&r) { 1.0 } else { 0.0 };
+                p.add_var(coef, (0.0, f64::INFINITY))
+            })
+            .collect();
+        for &j in using {
+            let terms: Vec<(microlp::Variable, f64)> =
+                regions_of_set[j].iter().map(|&r| (vars[r], 1.0)).collect();
+            let (lo, hi) = sets[j].bound.lo_hi();
+            if lo == hi {
+                p.add_constraint(terms.as_slice(), ComparisonOp::Eq, lo);
+            } else {
+                p.add_constraint(terms.as_slice(), ComparisonOp::Ge, lo);
+                p.add_constraint(terms.as_slice(), ComparisonOp::Le, hi);
+            }
+        }
+        match p.solve() {
+            Ok(SolveOutcome::Solution(s)) => Some(s.objective()),
+            // Unbounded above: the reader learns no upper limit.
+            Err(microlp::Error::Unbounded) => Some(f64::INFINITY),
+            _ => None,
+        }
+    };
+    let lo = solve(OptimizationDirection::Minimize)?;
+    let hi = solve(OptimizationDirection::Maximize)?;
+    // Whole numbers inside the LP range (1e-6 absorbs the solver's tolerance).
+    let lo = (lo - 1e-6).ceil().max(0.0) as u64;
+    let hi = if hi.is_finite() {
+        (hi + 1e-6).floor().max(0.0) as u64
+    } else {
+        u64::MAX / 4
+    };
+    Some((lo, hi.max(lo)))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn set(
+        people: std::ops::Range<u64>,
+        extra: &[u64],
+        bound: Bound,
+        current: Option<usize>,
+    ) -> FamilySet {
+        let mut p: Vec<u64> = people.collect();
+        p.extend_from_slice(extra);
+        FamilySet {
+            people: p,
+            bound,
+            current,
+        }
+    }
+
+    /// Groups A (3 people: 0–2), B (20: 100–119), C (20: 200–219); published A∪B, B∪C, A∪C.
+    fn three_unions(third: Bound) -> Vec<FamilySet> {
+        let a = [0, 1, 2];
+        vec![
+            set(100..120, &a, Bound::Exact(23), None),
+            set(
+                100..120,
+                &(200..220).collect::<Vec<_>>(),
+                Bound::Exact(40),
+                None,
+            ),
+            set(200..220, &a, third, Some(7)),
+        ]
+    }
+
+    #[test]
+    fn three_overlapping_counts_give_a_group_no_pair_gives() {
+        let mut budget = 1000;
+        let caps = Caps::default();
+        // Pairs alone: nothing.
+        let sets = three_unions(Bound::Exact(23));
+        assert_eq!(
+            audit(&sets[..2], 11, &caps, &mut budget),
+            Outcome::Clean,
+            "no new figure"
+        );
+        let mut pair = vec![sets[0].clone(), sets[2].clone()];
+        assert_eq!(audit(&pair, 11, &caps, &mut budget), Outcome::Clean);
+        pair[0] = sets[1].clone();
+        assert_eq!(audit(&pair, 11, &caps, &mut budget), Outcome::Clean);
+        // All three: A = (23 + 40 + 23) / 2 − 40 = 3.
+        let Outcome::Leaks(leaks) = audit(&sets, 11, &caps, &mut budget) else {
+            panic!("the three counts give A");
+        };
+        assert!(leaks.iter().any(|l| l.size == 3 && l.derived == (3, 3)));
+        assert_eq!(leaks[0].blame, vec![7]);
+        // Printed as a wide range instead, nothing is derivable.
+        let sets = three_unions(Bound::Range(15, 35));
+        assert_eq!(audit(&sets, 11, &caps, &mut budget), Outcome::Clean);
+        // A range of two values still leaks.
+        let sets = three_unions(Bound::Range(23, 24));
+        assert!(matches!(
+            audit(&sets, 11, &caps, &mut budget),
+            Outcome::Leaks(_)
+        ));
+    }
+
+    #[test]
+    fn a_group_earlier_releases_already_gave_is_not_blamed_on_the_new_one() {
+        // Earlier: 30 and 27 with nested people (difference 3); new: a copy of the 30.
+        let sets = vec![
+            set(0..30, &[], Bound::Exact(30), None),
+            set(0..27, &[], Bound::Exact(27), None),
+            set(0..30, &[], Bound::Exact(30), Some(0)),
+        ];
+        let mut budget = 1000;
+        assert_eq!(
+            audit(&sets, 11, &Caps::default(), &mut budget),
+            Outcome::Clean
+        );
+    }
+
+    #[test]
+    fn the_audit_gives_up_over_its_caps_and_when_its_budget_is_spent() {
+        let sets = three_unions(Bound::Exact(23));
+        let caps = Caps {
+            max_sets: 2,
+            ..Caps::default()
+        };
+        let mut budget = 1000;
+        assert!(matches!(
+            audit(&sets, 11, &caps, &mut budget),
+            Outcome::GaveUp(_)
+        ));
+        let caps = Caps {
+            max_regions: 2,
+            ..Caps::default()
+        };
+        assert!(matches!(
+            audit(&sets, 11, &caps, &mut budget),
+            Outcome::GaveUp(_)
+        ));
+        let mut budget = 3;
+        assert!(matches!(
+            audit(&sets, 11, &Caps::default(), &mut budget),
+            Outcome::GaveUp(_)
+        ));
+    }
+}
