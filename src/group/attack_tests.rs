@@ -537,6 +537,7 @@ fn count_attack(releases: &[Release], min: u64) -> Vec<Vec<String>> {
                 continue;
             }
             let e = &st["enrolment"];
+            #[allow(clippy::type_complexity, reason = "a local table of three predicates")]
             let sets: [(&Value, Box<dyn Fn(&Person) -> bool>); 3] = [
                 (&e["enrolled"], Box::new(|_| true)),
                 (&e["active"], Box::new(|p: &Person| !p.row.withdrawn)),

@@ -74,6 +74,10 @@ pub struct PatientData {
     /// Birth date.
     pub birth_date: Option<NaiveDate>,
     /// Weigh-ins: (date, time HH:MM, value, `kg` | `lb`, source from `Observation.method`).
+    #[allow(
+        clippy::type_complexity,
+        reason = "one plain tuple per weigh-in, documented above"
+    )]
     pub weights: Vec<(NaiveDate, Option<String>, f64, &'static str, Option<String>)>,
     /// Heights: (date, value, `cm` | `in`).
     pub heights: Vec<(NaiveDate, f64, &'static str)>,
