@@ -58,13 +58,13 @@ pub fn dispatch(cli: Cli) -> i32 {
             };
             match crate::demo::generate(&out, &opts) {
                 Ok(s) => {
-                    println!(
+                    say(format_args!(
                         "wrote a demo program with {} participants ({} files, {} bytes) to {}",
                         s.participants,
                         s.files,
                         s.bytes,
                         out.display()
-                    );
+                    ));
                     exit_code::SUCCESS
                 }
                 Err(e) => {
@@ -121,7 +121,7 @@ fn init_logging(quiet: bool, format: LogFormat) {
 fn import_fhir(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> i32 {
     match crate::import::fhir::import(files, out, ids) {
         Ok(summary) => {
-            println!("{summary}");
+            say(format_args!("{summary}"));
             exit_code::SUCCESS
         }
         Err((why, msg)) => {
@@ -149,9 +149,28 @@ fn dump_templates(dir: &Path) -> i32 {
             }
         }
     }
-    println!(
+    say(format_args!(
         "wrote {written} template files to {}; point report.templates in program.yaml at this folder (relative to the program folder)",
         dir.display()
-    );
+    ));
     exit_code::SUCCESS
+}
+
+/// Writes one message and a newline to standard output (`print` adds no newline). A reader that
+/// stopped early (`cohortpress modules | head`) is not a failure of the command: the rest is
+/// dropped, as other Unix filters do, instead of the panic `println!` gives on a closed pipe.
+pub(crate) fn say(message: std::fmt::Arguments<'_>) {
+    print(format_args!("{message}\n"));
+}
+
+/// [`say`] without the newline.
+pub(crate) fn print(text: std::fmt::Arguments<'_>) {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_fmt(text).and_then(|()| out.flush()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => {
+            eprintln!("error: could not write to standard output: {e}")
+        }
+        _ => {}
+    }
 }

@@ -137,7 +137,10 @@ pub fn modules_command(program: Option<&Path>) -> i32 {
         },
         None => None,
     };
-    print!("{}", modules::describe_modules(loaded.as_ref()));
+    super::print(format_args!(
+        "{}",
+        modules::describe_modules(loaded.as_ref())
+    ));
     exit_code::SUCCESS
 }
 

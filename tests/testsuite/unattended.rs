@@ -316,6 +316,26 @@ fn check_into_a_closed_pipe_keeps_the_inputs_exit_code() {
     assert_ne!(status.code(), Some(6));
 }
 
+/// `cohortpress modules | head`: a listing cut short by its reader is not a crash (exit 70).
+#[test]
+fn modules_into_a_closed_pipe_is_not_an_internal_error() {
+    let mut child = Command::new(BIN)
+        .arg("modules")
+        .env_clear()
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stdout.take());
+    let out = child.wait_with_output().unwrap();
+    assert_eq!(out.status.code(), Some(0), "{out:?}");
+    assert!(
+        out.stderr.is_empty(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
+
 /// Runs `cohortpress ARGS…` like [`ProgramTest::run`], but kills it after `secs` seconds; `None`
 /// when it had to be killed (a run that waits forever under cron holds its lock forever).
 fn run_within(t: &ProgramTest, args: &[&str], secs: u64) -> Option<i32> {
