@@ -513,6 +513,81 @@ fn finite(x: f64) -> Option<f64> {
     x.is_finite().then_some(x)
 }
 
+/// The tissue trend: the weigh-ins minus the fast weight ([`fast::fast_weight`]), smoothed with
+/// the smoothed logged intake as a known input to the slope ([`fast::intake_control`]).
+///
+/// # Method
+/// For each factor of [`fast::INTAKE_GAIN_FACTORS`] the variances are estimated by maximum
+/// likelihood with that input ([`llt::estimate_params_controlled`]) and the factor with the
+/// highest likelihood is kept (factor 0: the log does not inform this person's slope changes,
+/// and the plain trend model is used). The slope's own random walk is held to
+/// `r ≤ 10^`[`fast::TISSUE_MAX_LOG10_SNR`] (see there) unless the weigh-ins reject that
+/// decisively: when the same search with `r` free gains more than
+/// [`fast::TISSUE_HELD_SLOPE_REJECTED`] in log-likelihood, the slope changed in a way the log
+/// does not show (a stop the log missed, logs that stayed "on plan"), and the free fit is used.
+/// Between weigh-ins the slope then moves when logged
+/// intake moves, by the energy the change leaves for tissue, so the day a falling loss rate
+/// enters the plateau band is dated by the log as well as by the scale (the scale alone,
+/// with day-to-day correlated scatter, resolves a 28-day slope to about ±0.1 kg/week).
+/// `None` without a usable log.
+fn tissue_trend(
+    data: &ParticipantData,
+    first: NaiveDate,
+    grid_len: usize,
+    obs_t: &[f64],
+    grid_y: &[Option<f64>],
+    outlier_z: f64,
+) -> Option<llt::SmoothedRun> {
+    let f = fast::fast_weight(&data.intake, first, grid_len)?;
+    let x = fast::smoothed_intake(&data.intake, first, grid_len)?;
+    let adj: Vec<Option<f64>> = grid_y
+        .iter()
+        .zip(&f)
+        .map(|(y, f)| y.map(|y| y - f))
+        .collect();
+    let adj_obs: Vec<Option<f64>> = obs_t.iter().map(|&t| adj[t as usize]).collect();
+    let best_over_factors = |max_log10_r: f64| {
+        let mut best: Option<(f64, llt::ParamFit)> = None;
+        for factor in fast::INTAKE_GAIN_FACTORS {
+            let beta = factor * fast::INTAKE_GAIN_KG_PER_KCAL;
+            let control = fast::intake_control(&x, obs_t, beta);
+            let fit = llt::estimate_params_controlled(
+                obs_t,
+                &adj_obs,
+                Some(&control),
+                max_log10_r,
+                outlier_z,
+            );
+            if best
+                .as_ref()
+                .is_none_or(|b| fit.log_likelihood > b.1.log_likelihood)
+            {
+                best = Some((beta, fit));
+            }
+        }
+        best
+    };
+    let held = best_over_factors(fast::TISSUE_MAX_LOG10_SNR)?;
+    let free = best_over_factors(-1.0)?;
+    let (beta, fit) =
+        if free.1.log_likelihood - held.1.log_likelihood > fast::TISSUE_HELD_SLOPE_REJECTED {
+            free
+        } else {
+            held
+        };
+    let grid_t: Vec<f64> = (0..grid_len).map(|i| i as f64).collect();
+    let control = fast::intake_control(&x, &grid_t, beta);
+    let start = adj.iter().flatten().next().copied()?;
+    Some(rts_smoother(llt::kalman_filter_controlled(
+        &grid_t,
+        &adj,
+        Some(&control),
+        fit.params,
+        StatePrior::diffuse(start, DIFFUSE_KAPPA),
+        Some(OutlierScreen { z: outlier_z }),
+    )))
+}
+
 /// The whole module computation; `to` is the period end (no data after it are used).
 fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> ModuleOutput {
     let mut out = ModuleOutput::default();
@@ -663,24 +738,10 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     });
 
     // Periods.
-    // Plateaus are judged on tissue: the same model run on the weigh-ins minus the fast
-    // glycogen/water weight the food log implies (`fast`), when there is a log to read.
-    let tissue = fast::fast_weight(&data.intake, first, grid_len).map(|f| {
-        let adj: Vec<Option<f64>> = grid_y
-            .iter()
-            .zip(&f)
-            .map(|(y, f)| y.map(|y| y - f))
-            .collect();
-        rts_smoother(kalman_filter(
-            &grid_t,
-            &adj,
-            fit.params,
-            StatePrior::diffuse(days[0].1 - f[0], DIFFUSE_KAPPA),
-            Some(OutlierScreen {
-                z: settings.outlier_z,
-            }),
-        ))
-    });
+    // Plateaus are judged on tissue: the weigh-ins minus the fast glycogen/water weight the
+    // food log implies (`fast`), when there is a log to read, smoothed by the same model with
+    // the logged intake as a known input to the slope (its gain chosen by likelihood).
+    let tissue = tissue_trend(data, first, grid_len, &obs_t, &grid_y, settings.outlier_z);
     let periods_now = find_periods(&sm, tissue.as_ref(), &has_obs, &settings.plateau);
     let rows = periods_now
         .iter()

@@ -225,6 +225,7 @@ struct LikSums {
 fn filter_core(
     times: &[f64],
     values: &[Option<f64>],
+    control: Option<&[Vec2]>,
     params: LltParams,
     prior: StatePrior,
     screen: Option<OutlierScreen>,
@@ -235,7 +236,7 @@ fn filter_core(
     let mut p = prior.cov;
     let mut prev_t: Option<f64> = None;
     let mut seen = 0usize;
-    for (&t, &y) in times.iter().zip(values) {
+    for (i, (&t, &y)) in times.iter().zip(values).enumerate() {
         // Predict (the first step uses the prior as its prediction). T P Tᵀ + Q written out for
         // T = [[1, Δ], [0, 1]]: this loop runs ~30 times per participant during estimation.
         let (a_pred, p_pred) = match prev_t {
@@ -243,7 +244,8 @@ fn filter_core(
             Some(t0) => {
                 let d = t - t0;
                 let qd = params.q * d;
-                let a_pred = [a[0] + d * a[1], a[1]];
+                let u = control.map_or([0.0, 0.0], |c| c[i]);
+                let a_pred = [a[0] + d * a[1] + u[0], a[1] + u[1]];
                 let p01 = p[0][1] + d * p[1][1] + qd * d / 2.0;
                 let p00 = p[0][0] + d * (2.0 * p[0][1] + d * p[1][1]) + qd * d * d / 3.0;
                 let p11 = p[1][1] + qd;
@@ -337,8 +339,31 @@ pub fn kalman_filter(
     prior: StatePrior,
     screen: Option<OutlierScreen>,
 ) -> FilterRun {
+    kalman_filter_controlled(times, values, None, params, prior, screen)
+}
+
+/// [`kalman_filter`] with a known input: `control[i]` (level, slope) is added to the predicted
+/// state of step `i` (`control[0]` is not used), i.e. `a⁻_i = T a_{i−1} + u_i`.
+///
+/// # Remarks
+/// A known input moves the mean only, so the covariances, the smoother gains and the
+/// Rauch–Tung–Striebel recursion are unchanged (the smoother reads the stored predictions).
+/// `control`, when given, has one entry per time step.
+pub fn kalman_filter_controlled(
+    times: &[f64],
+    values: &[Option<f64>],
+    control: Option<&[Vec2]>,
+    params: LltParams,
+    prior: StatePrior,
+    screen: Option<OutlierScreen>,
+) -> FilterRun {
+    if let Some(c) = control {
+        assert_eq!(c.len(), times.len(), "one control entry per time step");
+    }
     let mut steps = Vec::with_capacity(times.len());
-    let sums = filter_core(times, values, params, prior, screen, |s| steps.push(s));
+    let sums = filter_core(times, values, control, params, prior, screen, |s| {
+        steps.push(s)
+    });
     FilterRun {
         steps,
         log_likelihood: log_lik_from_sums(&sums, screen.map_or(0.0, |s| s.z)),
@@ -530,12 +555,20 @@ pub(crate) fn median_in_place(x: &mut [f64]) -> f64 {
 
 /// Profile log-likelihood at signal-to-noise ratio `r = q/σ²_ε`, with σ²_ε concentrated out.
 /// Returns (ℓ, σ̂²).
-fn profile(times: &[f64], values: &[Option<f64>], r: f64, sigma0: f64, z: f64) -> (f64, f64) {
+fn profile(
+    times: &[f64],
+    values: &[Option<f64>],
+    control: Option<&[Vec2]>,
+    r: f64,
+    sigma0: f64,
+    z: f64,
+) -> (f64, f64) {
     let s0 = sigma0 * sigma0;
     let prior = StatePrior::diffuse(first_value(values), DIFFUSE_KAPPA);
     let sums = filter_core(
         times,
         values,
+        control,
         LltParams {
             sigma2_eps: s0,
             q: r * s0,
@@ -584,6 +617,20 @@ fn first_value(values: &[Option<f64>]) -> f64 {
 /// few to estimate both variances: then r = [`DEFAULT_SNR`] and only σ²_ε is estimated; fewer
 /// than 5 observations use both defaults. About 21 filter passes over the observation times.
 pub fn estimate_params(times: &[f64], values: &[Option<f64>], outlier_z: f64) -> ParamFit {
+    estimate_params_controlled(times, values, None, -1.0, outlier_z)
+}
+
+/// [`estimate_params`] for the model with a known input (see [`kalman_filter_controlled`]),
+/// with `log10 r` searched up to `max_log10_r` (at most −1, at least −9).
+pub fn estimate_params_controlled(
+    times: &[f64],
+    values: &[Option<f64>],
+    control: Option<&[Vec2]>,
+    max_log10_r: f64,
+    outlier_z: f64,
+) -> ParamFit {
+    let max_log10_r = max_log10_r.clamp(-9.0, -1.0);
+    let default_snr = DEFAULT_SNR.min(10f64.powf(max_log10_r));
     let observed: Vec<f64> = values.iter().flatten().copied().collect();
     let n = observed.len();
     let sigma0 = robust_noise_sd(&observed);
@@ -592,25 +639,28 @@ pub fn estimate_params(times: &[f64], values: &[Option<f64>], outlier_z: f64) ->
         return ParamFit {
             params: LltParams {
                 sigma2_eps: s2,
-                q: DEFAULT_SNR * s2,
+                q: default_snr * s2,
             },
             log_likelihood: 0.0,
             method: FitMethod::Defaults,
         };
     }
     if n < 10 {
-        let (ll, s2) = profile(times, values, DEFAULT_SNR, sigma0, outlier_z);
+        let (ll, s2) = profile(times, values, control, default_snr, sigma0, outlier_z);
         return ParamFit {
             params: LltParams {
                 sigma2_eps: s2,
-                q: DEFAULT_SNR * s2,
+                q: default_snr * s2,
             },
             log_likelihood: ll,
             method: FitMethod::NoiseOnly,
         };
     }
-    let eval = |log_r: f64| profile(times, values, 10f64.powf(log_r), sigma0, outlier_z);
-    let grid: Vec<f64> = (0..9).map(|i| -9.0 + i as f64).collect();
+    let eval = |log_r: f64| profile(times, values, control, 10f64.powf(log_r), sigma0, outlier_z);
+    let grid: Vec<f64> = (0..9)
+        .map(|i| -9.0 + i as f64)
+        .filter(|&g| g <= max_log10_r)
+        .collect();
     let mut best = (f64::NEG_INFINITY, 0usize);
     for (i, &g) in grid.iter().enumerate() {
         let (ll, _) = eval(g);
@@ -712,5 +762,82 @@ mod tests {
             }
         }
         assert!((a.log_likelihood - b.log_likelihood).abs() < 1e-9);
+    }
+
+    #[test]
+    fn a_known_input_over_a_gap_equals_the_daily_steps_it_composes() {
+        // Smoothed intake rising 0, 100, 250, 300 kcal/d over days 0–3; weigh-ins on days 0,
+        // 1 and 3. The input of the 1 → 3 step must equal the two daily inputs composed.
+        let x = [2000.0, 2100.0, 2250.0, 2300.0];
+        let beta = 1e-4;
+        let p = LltParams {
+            sigma2_eps: 0.3,
+            q: 0.01,
+        };
+        let prior = StatePrior::diffuse(80.0, 1e6);
+        let gap_t = [0.0, 1.0, 3.0];
+        let daily_t = [0.0, 1.0, 2.0, 3.0];
+        let gap_u = crate::fast::intake_control(&x, &gap_t, beta);
+        let daily_u = crate::fast::intake_control(&x, &daily_t, beta);
+        // Slope input of the gap: β(x₃ − x₁); level input: β(x₂ − x₁).
+        assert!((gap_u[2][1] - beta * 200.0).abs() < 1e-12);
+        assert!((gap_u[2][0] - beta * 150.0).abs() < 1e-12);
+        let y = [Some(80.0), Some(79.5), Some(79.9)];
+        let a = kalman_filter_controlled(&gap_t, &y, Some(&gap_u), p, prior, None);
+        let b = kalman_filter_controlled(
+            &daily_t,
+            &[y[0], y[1], None, y[2]],
+            Some(&daily_u),
+            p,
+            prior,
+            None,
+        );
+        let (sa, sb) = (a.steps.last().unwrap(), b.steps.last().unwrap());
+        for i in 0..2 {
+            assert!((sa.filtered_mean[i] - sb.filtered_mean[i]).abs() < 1e-9);
+        }
+        assert!((a.log_likelihood - b.log_likelihood).abs() < 1e-9);
+        // And the input moved the state: without it the last prediction differs.
+        let plain = kalman_filter(&gap_t, &y, p, prior, None);
+        let d = plain.steps[2].predicted_mean[0] - a.steps[2].predicted_mean[0];
+        // (The input raises the slope, so the controlled prediction is higher.)
+        assert!(d < -0.01, "{d}");
+    }
+
+    #[test]
+    fn weights_that_follow_the_input_are_tracked_without_surprise() {
+        // Noise-free weights whose slope follows the input exactly: after the diffuse start
+        // every innovation is zero, and the smoothed slope is the true one on every day.
+        let n = 60;
+        let x: Vec<f64> = (0..n)
+            .map(|d| 1600.0 + 600.0 * ((d as f64 - 20.0) / 20.0).clamp(0.0, 1.0))
+            .collect();
+        let beta = 1e-4;
+        let slope = |d: usize| -0.1 + beta * (x[d] - x[0]);
+        let mut w = vec![90.0];
+        for d in 1..n {
+            w.push(w[d - 1] + slope(d - 1));
+        }
+        let t: Vec<f64> = (0..n).map(|d| d as f64).collect();
+        let u = crate::fast::intake_control(&x, &t, beta);
+        let y: Vec<Option<f64>> = w.iter().map(|&v| Some(v)).collect();
+        let p = LltParams {
+            sigma2_eps: 0.25,
+            q: 1e-6,
+        };
+        let sm = rts_smoother(kalman_filter_controlled(
+            &t,
+            &y,
+            Some(&u),
+            p,
+            StatePrior::diffuse(90.0, 1e6),
+            None,
+        ));
+        for s in &sm.filter.steps[2..] {
+            assert!(s.innovation.abs() < 1e-6, "{}", s.innovation);
+        }
+        for d in 0..n - 1 {
+            assert!((sm.mean[d][1] - slope(d)).abs() < 1e-6, "day {d}");
+        }
     }
 }

@@ -549,3 +549,73 @@ fn water_refilled_by_rising_intake_does_not_start_a_plateau() {
     let with = onset(&run_data(&data, days - 1)).expect("a plateau of tissue");
     assert!((96..=124).contains(&with), "onset with the log: day {with}");
 }
+
+/// When intake drifts up and tissue loss fades, the food log dates the stall even through
+/// day-to-day correlated scale scatter. Tissue here follows energy balance: slope =
+/// g·(EI − 2300) kcal/d with g = (1 − 0.1 − 0.14)/7700 kg per kcal (thermic effect and
+/// adaptive thermogenesis of Hall et al. 2011, Lancet 378:826, appendix; values from memory);
+/// the fast weight is Hall's linearisation as above; the scatter is AR(1) (φ = 0.7, SD 0.6 kg,
+/// as in the day-to-day weight records of Orsama et al. 2014; values from memory) plus 0.1 kg
+/// reading noise; the log holds 75 % of intake (± 10 % a day) on 80 % of days. Intake rises
+/// from 1600 to 2300 kcal/d over days 40–100, so the slope enters the ±0.25 %/wk band
+/// (≈ 0.030 kg/d at 85 kg) on about day 73.
+#[test]
+fn a_fading_loss_is_dated_by_the_food_log_through_correlated_scatter() {
+    let kappa = 3.7 * 0.5 / 2.0 + 4000.0 / 3000.0;
+    let g = (1.0 - 0.1 - 0.14) / 7700.0;
+    let intake = |d: i64| 1600.0 + 700.0 * ((d - 40) as f64 / 60.0).clamp(0.0, 1.0);
+    let days = 170;
+    let mean_intake = (0..days).map(intake).sum::<f64>() / days as f64;
+    let mut tissue = vec![92.0];
+    for d in 1..days {
+        tissue.push(tissue[d as usize - 1] + g * (intake(d - 1) - 2300.0));
+    }
+    let true_onset = (0..days)
+        .find(|&d| g * (intake(d) - 2300.0) > -0.0025 * tissue[d as usize] / 7.0)
+        .unwrap();
+    assert!((72..=76).contains(&true_onset), "{true_onset}");
+    let mut errors = Vec::new();
+    for seed in 1..=8u64 {
+        let mut rng = Rng(1000 + seed);
+        let mut ar = 0.0;
+        let phi: f64 = 0.7;
+        let innov_sd = 0.6 * (1.0 - phi * phi).sqrt();
+        let weights: Vec<(i64, f64)> = (0..days)
+            .map(|d| {
+                ar = phi * ar + innov_sd * rng.normal();
+                let fast = kappa * (intake(d) / mean_intake - 1.0);
+                let w = tissue[d as usize] + fast + ar + 0.1 * rng.normal();
+                (d, (w * 10.0).round() / 10.0)
+            })
+            .collect();
+        let mut data = participant(&weights);
+        data.intake = (0..days)
+            .filter_map(|d| {
+                let logged = rng.uniform() < 0.8;
+                let kcal = 0.75 * intake(d) * (1.0 + 0.1 * rng.normal());
+                logged.then_some(IntakeDay {
+                    date: day(d),
+                    kcal,
+                    carbs_g: None,
+                    fat_g: None,
+                    protein_g: None,
+                    free_sugars_g: None,
+                })
+            })
+            .collect();
+        let out = run_data(&data, days - 1);
+        let onset = kinds(&out)
+            .into_iter()
+            .find(|k| k.0 == "plateau")
+            .map(|k| (NaiveDate::parse_from_str(&k.1, "%Y-%m-%d").unwrap() - day0()).num_days());
+        errors.push(onset.map(|o| o - true_onset));
+    }
+    let hits = errors
+        .iter()
+        .filter(|e| e.is_some_and(|e| e.abs() <= 14))
+        .count();
+    // Measured: 6 of 8 (two seeds' scatter is strong enough that the weigh-ins reject the held
+    // slope and the free trend follows the scatter; `fast::TISSUE_HELD_SLOPE_REJECTED`). The
+    // trend without the log as input dated 5 of 8 within ±14 days.
+    assert!(hits >= 6, "onset errors (days) by seed: {errors:?}");
+}
