@@ -26,7 +26,9 @@ fn check(seed: u64) {
             true,
             s.intake_coverage,
         ),
-        ("forecast band coverage", 0.90, true, s.forecast_coverage),
+        // Measured 96.2 % and 96.6 % with the upper edge allowing a full relapse; 92.5 % and
+        // 93.6 % when it allowed half (the goal is 90 %; this floor guards the relapse edge).
+        ("forecast band coverage", 0.94, true, s.forecast_coverage),
         ("regain sensitivity", 0.80, true, s.regain_sensitivity),
         ("regain specificity", 0.95, true, s.regain_specificity),
         // Measured 59 % (seed 20261202) and 59 % (seed 7) with the tissue trend taking the
