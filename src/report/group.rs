@@ -411,12 +411,12 @@ fn fill(
             vec![
                 "On a plateau at the end of the period".into(),
                 match p.in_plateau {
+                    // The interval only when it can be shown (never "x % (not shown (…))").
                     Shown::Value(_) => format!(
-                        "{} of {} with enough data: {} ({})",
+                        "{} of {} with enough data: {}",
                         count(&p.in_plateau),
                         count(&p.with_verdict),
-                        num(&p.percent, 0, " %"),
-                        interval(&p.ci, 0)
+                        with_interval(num(&p.percent, 0, " %"), &p.ci, 0)
                     ),
                     // A hidden count hides its share and interval too: say it once.
                     _ => match p.with_verdict {
