@@ -129,8 +129,9 @@ const IGNORED: &[&str] = &[
 /// Classes that make text small and grey in the PDF, as in the style sheet.
 const SMALL_CLASSES: &[&str] = &["small", "muted", "program", "suppressed", "facts"];
 
-/// Classes for content that exists for one medium only.
-const SCREEN_ONLY: &[&str] = &["screen-only", "chart-narrow"];
+/// Classes for content that exists for one medium only; `running-header` marks the line the
+/// PDF already prints as its running header on every page (not printed twice on page 1).
+const SCREEN_ONLY: &[&str] = &["screen-only", "chart-narrow", "running-header"];
 
 fn has_class(e: ElementRef<'_>, list: &[&str]) -> bool {
     e.value().classes().any(|c| list.contains(&c))

@@ -930,8 +930,10 @@ fn html_visible_text(html: &str) -> Vec<String> {
             }
             scraper::Node::Element(e) => {
                 let skip = matches!(e.name(), "head" | "style" | "script" | "svg" | "nav")
-                    || e.classes()
-                        .any(|c| c == "screen-only" || c == "chart-narrow");
+                    || e.classes().any(|c| {
+                        // Left out of the PDF body (the running header prints the program line).
+                        c == "screen-only" || c == "chart-narrow" || c == "running-header"
+                    });
                 if !skip {
                     n.children().for_each(|c| walk(c, out));
                 }
