@@ -176,8 +176,9 @@ pub struct RunArgs {
     #[arg(long)]
     pub group_readable: bool,
     /// State folder of the group-report ledger (what earlier group reports published; each
-    /// new one is audited against it). Default: the output folder's name plus `.ledger`,
-    /// beside it.
+    /// new one is audited against it). Default: program.yaml's `report.state_dir` (relative to
+    /// the program folder), else the output folder's name plus `.ledger`, beside it; this
+    /// option wins over `report.state_dir`.
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
 }
@@ -202,7 +203,8 @@ pub struct MergeArgs {
     /// Create output files and folders readable by the owner's group (0640/0750).
     #[arg(long)]
     pub group_readable: bool,
-    /// State folder of the group-report ledger (default: `<out>.ledger` beside the output).
+    /// State folder of the group-report ledger (default: program.yaml's `report.state_dir`,
+    /// else `<out>.ledger` beside the output; this option wins over `report.state_dir`).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
 }

@@ -583,7 +583,6 @@ fn small_withdrawn_cell_gets_a_complement_inside_and_across_sections() {
 }
 
 #[test]
-#[ignore = "over 10 minutes in a debug build since the cross-release count audit; run with `cargo test --release --lib group -- --ignored`"]
 fn generated_programs_leak_no_small_cell() {
     // Deterministic generated programs of many shapes (sizes, uneven sites, two splits,
     // missing team values); every report must pass the checker.
@@ -594,8 +593,8 @@ fn generated_programs_leak_no_small_cell() {
         (200, [0.25, 0.25, 0.25, 0.25]),
         (90, [0.7, 0.1, 0.1, 0.1]),
     ];
-    // Two seeds per shape: every report now also runs the LP range audit, which costs about
-    // two seconds per report in a debug build.
+    // Two seeds per shape: every report also runs the LP range audit (about 75 s for the
+    // whole test in a debug build).
     for seed in 1..=2u64 {
         for (n, w) in &shapes {
             let rows = generated(seed, *n, w);
@@ -670,11 +669,10 @@ fn checker_rejects_primary_suppression_alone() {
 }
 
 #[test]
-#[ignore = "over 10 minutes in a debug build since the cross-release count audit; run with `cargo test --release --lib group -- --ignored`"]
 fn many_sites_and_weeks_leak_no_small_cell() {
     // 500 participants over 20 sites of very uneven size (many small ones) and up to 16
     // trajectory weeks: a larger linear system for the suppression, the LP ranges and the
-    // checker (kept this size so the debug-build test stays within about a minute).
+    // checker (about 30 s in a debug build).
     let mut g = Lcg(7);
     let rows: Vec<ParticipantSummary> = (0..500)
         .map(|_| {
