@@ -36,11 +36,7 @@ const MIN_LOGGED_DAYS: usize = 28;
 /// days (a window dominated by a logging slip must not move the estimate further); `None` when
 /// the log is too thin to say anything. Days whose centred window holds too few logged days take
 /// the nearest estimated day's value (no information about a change there, so none is assumed).
-pub fn smoothed_intake(
-    intake: &[IntakeDay],
-    first: NaiveDate,
-    grid_len: usize,
-) -> Option<Vec<f64>> {
+pub fn smoothed_intake(intake: &[IntakeDay], first: NaiveDate, grid_len: usize) -> Option<Logged> {
     let kcal = daily_totals(intake, first, grid_len);
     let logged: Vec<f64> = kcal.iter().flatten().copied().collect();
     if logged.len() < MIN_LOGGED_DAYS {
@@ -66,23 +62,28 @@ pub fn smoothed_intake(
         }
     }
     let first_known = x.iter().flatten().next().copied()?;
-    Some(x.into_iter().map(|v| v.unwrap_or(first_known)).collect())
+    Some(Logged {
+        per_day: x.into_iter().map(|v| v.unwrap_or(first_known)).collect(),
+        mean: reference,
+    })
 }
 
-/// Estimated fast weight per grid day, kg, relative to the person's mean logged intake, from
-/// [`smoothed_intake`]; `None` when the log is too thin.
-pub fn fast_weight(intake: &[IntakeDay], first: NaiveDate, grid_len: usize) -> Option<Vec<f64>> {
-    let x = smoothed_intake(intake, first, grid_len)?;
-    let logged: Vec<f64> = daily_totals(intake, first, grid_len)
-        .into_iter()
-        .flatten()
-        .collect();
-    let reference = logged.iter().sum::<f64>() / logged.len() as f64;
-    Some(
-        x.into_iter()
-            .map(|v| FAST_KG_PER_RELATIVE_INTAKE * (v / reference - 1.0))
-            .collect(),
-    )
+/// The smoothed logged intake ([`smoothed_intake`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Logged {
+    /// Per grid day, kcal/d.
+    pub per_day: Vec<f64>,
+    /// Mean of all logged days' totals, kcal/d (the reference the fast weight is relative to).
+    pub mean: f64,
+}
+
+/// Estimated fast weight per grid day, kg, relative to the person's mean logged intake.
+pub fn fast_weight(logged: &Logged) -> Vec<f64> {
+    logged
+        .per_day
+        .iter()
+        .map(|v| FAST_KG_PER_RELATIVE_INTAKE * (v / logged.mean - 1.0))
+        .collect()
 }
 
 /// Change of the tissue slope per change of logged intake, (kg/d) per (kcal/d), before the
@@ -192,7 +193,7 @@ mod tests {
         let logs: Vec<IntakeDay> = (0..120)
             .map(|d| log(d, if d < 60 { 1600.0 } else { 2000.0 }))
             .collect();
-        let f = fast_weight(&logs, day(0), 120).unwrap();
+        let f = fast_weight(&smoothed_intake(&logs, day(0), 120).unwrap());
         let k = FAST_KG_PER_RELATIVE_INTAKE;
         assert!((f[20] - k * (1600.0 / 1800.0 - 1.0)).abs() < 1e-9);
         assert!((f[100] - k * (2000.0 / 1800.0 - 1.0)).abs() < 1e-9);
@@ -204,12 +205,12 @@ mod tests {
     #[test]
     fn a_thin_log_gives_no_correction_and_gaps_carry_the_nearest_value() {
         let logs: Vec<IntakeDay> = (0..20).map(|d| log(d, 1800.0)).collect();
-        assert!(fast_weight(&logs, day(0), 100).is_none());
+        assert!(smoothed_intake(&logs, day(0), 100).is_none());
         // Logged only in days 0–39; later days carry day 39's window mean.
         let logs: Vec<IntakeDay> = (0..40)
             .map(|d| log(d, if d < 20 { 1500.0 } else { 2100.0 }))
             .collect();
-        let f = fast_weight(&logs, day(0), 100).unwrap();
+        let f = fast_weight(&smoothed_intake(&logs, day(0), 100).unwrap());
         assert_eq!(f[99], f[45]);
         assert!(f[45] > 0.0 && f[5] < 0.0);
     }

@@ -538,8 +538,9 @@ fn tissue_trend(
     grid_y: &[Option<f64>],
     outlier_z: f64,
 ) -> Option<llt::SmoothedRun> {
-    let f = fast::fast_weight(&data.intake, first, grid_len)?;
-    let x = fast::smoothed_intake(&data.intake, first, grid_len)?;
+    let logged = fast::smoothed_intake(&data.intake, first, grid_len)?;
+    let f = fast::fast_weight(&logged);
+    let x = logged.per_day;
     let adj: Vec<Option<f64>> = grid_y
         .iter()
         .zip(&f)
