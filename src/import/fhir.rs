@@ -244,6 +244,19 @@ impl Imported {
             ));
             this.skipped += 1;
         };
+        // No usable quantity: say what was expected and what the resource holds instead.
+        let no_quantity = |this: &mut Self| {
+            let mut found = obs
+                .get("valueQuantity")
+                .map_or_else(|| "no valueQuantity".to_string(), |v| v.to_string());
+            if found.chars().count() > 80 {
+                found = found.chars().take(80).collect::<String>() + "…";
+            }
+            this.problems.push(format!(
+                "{origin}: Observation {id} (LOINC {code}) needs a valueQuantity with a numeric `value` and a UCUM `code`; found {found}; it is skipped"
+            ));
+            this.skipped += 1;
+        };
         let source = method(obs);
         match code {
             BODY_WEIGHT => match q {
@@ -261,20 +274,20 @@ impl Imported {
                     .weights
                     .push((date, time, v, "lb", source)),
                 Some((_, u)) => return bad_unit(self, u),
-                None => return bad_unit(self, "(none)"),
+                None => return no_quantity(self),
             },
             BODY_HEIGHT => match q {
                 Some((v, "cm")) => self.patient(&patient).heights.push((date, v, "cm")),
                 Some((v, "m")) => self.patient(&patient).heights.push((date, v * 100.0, "cm")),
                 Some((v, "[in_i]")) => self.patient(&patient).heights.push((date, v, "in")),
                 Some((_, u)) => return bad_unit(self, u),
-                None => return bad_unit(self, "(none)"),
+                None => return no_quantity(self),
             },
             WAIST => match q {
                 Some((v, "cm")) => self.patient(&patient).labs.push((date, "waist", v, "cm")),
                 Some((v, "[in_i]")) => self.patient(&patient).labs.push((date, "waist", v, "in")),
                 Some((_, u)) => return bad_unit(self, u),
-                None => return bad_unit(self, "(none)"),
+                None => return no_quantity(self),
             },
             HBA1C | HBA1C_IFCC => match q {
                 Some((v, "%")) => self.patient(&patient).labs.push((date, "hba1c", v, "%")),
@@ -283,7 +296,7 @@ impl Imported {
                     .labs
                     .push((date, "hba1c", v, "mmol/mol")),
                 Some((_, u)) => return bad_unit(self, u),
-                None => return bad_unit(self, "(none)"),
+                None => return no_quantity(self),
             },
             FASTING_GLUCOSE_MASS | FASTING_GLUCOSE_MOLES => match q {
                 Some((v, "mg/dL")) => {
@@ -297,7 +310,7 @@ impl Imported {
                         .push((date, "fasting_glucose", v, "mmol/L"))
                 }
                 Some((_, u)) => return bad_unit(self, u),
-                None => return bad_unit(self, "(none)"),
+                None => return no_quantity(self),
             },
             SYSTOLIC | DIASTOLIC => match q {
                 Some((v, "mm[Hg]" | "mmHg")) => {
@@ -309,7 +322,7 @@ impl Imported {
                     self.patient(&patient).labs.push((date, test, v, "mmHg"))
                 }
                 Some((_, u)) => return bad_unit(self, u),
-                None => return bad_unit(self, "(none)"),
+                None => return no_quantity(self),
             },
             BP_PANEL => {
                 let mut found = 0;
@@ -683,6 +696,26 @@ mod tests {
         assert_eq!(
             get("labs.csv"),
             "date,test,value,unit\n2027-03-02,diastolic_bp,82,mmHg\n2027-03-02,fasting_glucose,101,mg/dL\n2027-03-02,hba1c,5.9,%\n2027-03-02,systolic_bp,128,mmHg\n2027-03-02,waist,36.5,in\n"
+        );
+    }
+
+    #[test]
+    fn a_quantity_without_a_number_says_what_it_found() {
+        let mut imp = Imported::default();
+        let obs = json!({"resourceType": "Observation", "id": "h1", "status": "final",
+               "code": {"coding": [{"system": LOINC, "code": BODY_HEIGHT}]},
+               "subject": {"reference": "Patient/p-1"},
+               "effectiveDateTime": "2027-03-01",
+               "valueQuantity": {"value": "170", "code": "cm"}});
+        imp.add(&obs, &BTreeMap::new(), "h.ndjson:3");
+        assert_eq!(imp.skipped, 1);
+        assert_eq!(
+            imp.problems,
+            vec![
+                "h.ndjson:3: Observation h1 (LOINC 8302-2) needs a valueQuantity with a numeric \
+                 `value` and a UCUM `code`; found {\"code\":\"cm\",\"value\":\"170\"}; it is skipped"
+                    .to_string()
+            ]
         );
     }
 
