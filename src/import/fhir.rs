@@ -371,20 +371,39 @@ impl Imported {
                 Ok(())
             }
             _ => {
+                // NDJSON: a line that is not JSON (a cut-off last line, a stray character) is
+                // skipped and reported, so one damaged line does not lose the whole export; a
+                // file with no JSON line at all is not FHIR and is refused.
+                let mut bad = Vec::new();
+                let mut good = 0usize;
                 for (i, line) in text.lines().enumerate() {
                     if line.trim().is_empty() {
                         continue;
                     }
                     match serde_json::from_str::<Value>(line) {
-                        Ok(v) => self.add(&v, &none, &format!("{origin}:{}", i + 1)),
-                        Err(e) => {
-                            return Err(format!(
-                                "{origin}:{}: neither a JSON resource nor NDJSON ({e})",
-                                i + 1
-                            ));
+                        Ok(v) => {
+                            good += 1;
+                            self.add(&v, &none, &format!("{origin}:{}", i + 1));
                         }
+                        Err(e) => bad.push((i + 1, e)),
                     }
                 }
+                if good == 0 {
+                    return Err(match bad.first() {
+                        Some((line, e)) => format!(
+                            "{origin}:{line}:{}: neither a JSON resource nor NDJSON ({e})",
+                            e.column()
+                        ),
+                        None => format!("{origin}: the file holds no FHIR resource"),
+                    });
+                }
+                self.skipped += bad.len();
+                self.problems.extend(bad.iter().map(|(line, e)| {
+                    format!(
+                        "{origin}:{line}:{}: expected one JSON resource per line, found text that is not JSON ({e}); the line is skipped",
+                        e.column()
+                    )
+                }));
                 Ok(())
             }
         }
@@ -696,6 +715,42 @@ mod tests {
         assert_eq!(
             get("labs.csv"),
             "date,test,value,unit\n2027-03-02,diastolic_bp,82,mmHg\n2027-03-02,fasting_glucose,101,mg/dL\n2027-03-02,hba1c,5.9,%\n2027-03-02,systolic_bp,128,mmHg\n2027-03-02,waist,36.5,in\n"
+        );
+    }
+
+    #[test]
+    fn a_damaged_ndjson_line_is_skipped_and_a_file_without_json_is_refused() {
+        let tmp = tempfile::tempdir().unwrap();
+        let nd = tmp.path().join("export.ndjson");
+        let good = json!({"resourceType": "Observation", "id": "w1", "status": "final",
+               "code": {"coding": [{"system": LOINC, "code": BODY_WEIGHT}]},
+               "subject": {"reference": "Patient/p-1"},
+               "effectiveDateTime": "2027-03-01",
+               "valueQuantity": {"value": 91.0, "code": "kg"}});
+        // The last line was cut off in the middle of a resource.
+        std::fs::write(&nd, format!("{good}\n{{\"resourceType\": \"Observ\n")).unwrap();
+        let mut imp = Imported::default();
+        imp.read_file(&nd).unwrap();
+        assert_eq!(imp.observations, 1);
+        assert_eq!(imp.skipped, 1);
+        assert_eq!(imp.problems.len(), 1, "{:?}", imp.problems);
+        let origin = nd.display().to_string();
+        assert!(
+            imp.problems[0].starts_with(&format!("{origin}:2:")),
+            "{:?}",
+            imp.problems
+        );
+        assert!(imp.problems[0].ends_with("the line is skipped"));
+        // A file with no JSON line at all (a CSV given by mistake) is refused, naming line 1.
+        let csv = tmp.path().join("weights.csv");
+        std::fs::write(&csv, "date,weight\n2027-03-01,91\n").unwrap();
+        let e = Imported::default().read_file(&csv).unwrap_err();
+        assert!(
+            e.starts_with(&format!(
+                "{}:1:1: neither a JSON resource nor NDJSON",
+                csv.display()
+            )),
+            "{e}"
         );
     }
 
