@@ -206,6 +206,17 @@ pub fn merge_shards(opts: &MergeOptions) -> Result<(RunSummary, usize, PathBuf),
                 .into(),
         ));
     }
+    // Merging into one of the shards would replace that shard's output with the merged one:
+    // allowed by the output-folder rules (it is the tool's own), but never what was meant.
+    let canon = |p: &Path| std::fs::canonicalize(p).unwrap_or_else(|_| p.to_path_buf());
+    let out = canon(&plan.out_dir);
+    if let Some(d) = opts.shards.iter().find(|d| canon(d) == out) {
+        return Err(merge_error(format!(
+            "--out {} is one of the shard folders being merged; merging there would replace that \
+             shard's output: give another folder",
+            d.display()
+        )));
+    }
     let summary = merge(&plan, &opts.shards, &shards)?;
     Ok((summary, shards.len(), plan.out_dir))
 }

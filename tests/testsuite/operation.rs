@@ -469,6 +469,21 @@ fn three_shards_merged_equal_a_single_run() {
     ]);
     assert_eq!(m.code, 2, "{}", m.stderr);
     assert!(m.stderr.contains("of a different run"), "{}", m.stderr);
+
+    // Merging into one of the shards is refused, and that shard is left as it was.
+    let shard_json = Path::new(&shard_dirs[1]).join("shard.json");
+    let before = std::fs::read(&shard_json).unwrap();
+    let mut args = vec!["merge", "{dir}", "--out", shard_dirs[1].as_str()];
+    args.extend(shard_dirs.iter().map(String::as_str));
+    let m = t.run(&args);
+    assert_eq!(m.code, 2, "{}", m.stderr);
+    assert!(
+        m.stderr
+            .contains("is one of the shard folders being merged"),
+        "{}",
+        m.stderr
+    );
+    assert_eq!(std::fs::read(&shard_json).unwrap(), before);
 }
 
 /// `examples/slurm-array.sh` as Slurm would run it (eight array tasks, then the merge job, with
