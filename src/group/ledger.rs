@@ -63,9 +63,13 @@ pub fn default_dir(out_dir: &Path) -> PathBuf {
 }
 
 /// The ledger folder of a run: `--state DIR` when given (relative to the working folder), else
-/// `report.state_dir` of program.yaml (relative to the program folder), else
-/// [`default_dir`]. Refused (with the reason) when it would be inside the program's inputs or
-/// inside the output folder.
+/// `report.state_dir` of program.yaml (relative to the program folder), else the ledger of the
+/// program's own output folder (`report.out`) when one exists there — a run into another
+/// folder (`--out`: a re-issue, a preview, a folder per month) is then audited against every
+/// release the program's runs recorded, instead of a new, empty ledger against which any
+/// difference of two reports would go unseen — else [`default_dir`] of the output folder.
+/// Refused (with the reason) when it would be inside the program's inputs or inside the output
+/// folder.
 pub fn resolve_dir(
     cli: Option<&Path>,
     program: &crate::program::Program,
@@ -75,7 +79,17 @@ pub fn resolve_dir(
     let (dir, named_by) = match (cli, &program.def.report.state_dir) {
         (Some(d), _) => (cwd.join(d), "--state"),
         (None, Some(d)) => (cwd.join(&program.root).join(d), "report.state_dir"),
-        (None, None) => return Ok(default_dir(out_dir)),
+        (None, None) => {
+            let program_out = cwd.join(&program.root).join(&program.def.report.out);
+            let programs = default_dir(&program_out);
+            let existing =
+                std::fs::symlink_metadata(programs.join(LEDGER_FILE)).is_ok_and(|m| m.is_file());
+            return Ok(if existing {
+                programs
+            } else {
+                default_dir(out_dir)
+            });
+        }
     };
     let root = cwd.join(&program.root);
     let out = cwd.join(out_dir);
@@ -103,6 +117,7 @@ pub struct Ledger {
     dir: PathBuf,
     secret: [u8; 32],
     releases: Vec<ReleaseRecord>,
+    new: bool,
 }
 
 impl Ledger {
@@ -121,6 +136,7 @@ impl Ledger {
             Err(e) => return Err(io_err(&key_path, e)),
         };
         let ledger_path = dir.join(LEDGER_FILE);
+        let mut new = false;
         let releases = match std::fs::read(&ledger_path) {
             Ok(bytes) => {
                 let f: LedgerFile =
@@ -133,14 +149,28 @@ impl Ledger {
                 }
                 f.releases
             }
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => Vec::new(),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                new = true;
+                Vec::new()
+            }
             Err(e) => return Err(io_err(&ledger_path, e)),
         };
         Ok(Ledger {
             dir: dir.to_path_buf(),
             secret,
             releases,
+            new,
         })
+    }
+
+    /// Whether the ledger held no release file when opened (its first release is being made).
+    pub fn is_new(&self) -> bool {
+        self.new
+    }
+
+    /// The ledger's folder.
+    pub fn dir(&self) -> &Path {
+        &self.dir
     }
 
     /// What earlier releases of `program` published, for the audit.

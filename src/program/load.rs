@@ -90,6 +90,48 @@ pub fn state_dir_problem(
     templates: Option<&Path>,
     out: &Path,
 ) -> Option<String> {
+    lexical_state_problem(root, state, templates, out).or_else(|| {
+        // The same once every link is resolved: a state folder reached through a link (or
+        // inside a `participants/` that is itself a link) is refused like one named directly.
+        let root = real_path(root);
+        let state = real_path(&root.join(state));
+        let templates = templates.map(|t| real_path(&root.join(t)));
+        let out = real_path(&root.join(out));
+        if state.starts_with(real_path(&root.join("participants"))) {
+            return Some("inside participants/, among the inputs (through a link)".into());
+        }
+        lexical_state_problem(&root, &state, templates.as_deref(), &out)
+            .map(|why| format!("{why} (through a link)"))
+    })
+}
+
+/// `path` with every link resolved: the nearest folder on it that exists, canonicalized, plus
+/// the names that do not exist yet (`.` and `..` resolved lexically first).
+fn real_path(path: &Path) -> PathBuf {
+    let path = lexical(path);
+    let mut missing = Vec::new();
+    let mut existing = path.as_path();
+    loop {
+        if let Ok(real) = std::fs::canonicalize(existing) {
+            return real.join(missing.iter().rev().collect::<PathBuf>());
+        }
+        match (existing.parent(), existing.file_name()) {
+            (Some(parent), Some(name)) => {
+                missing.push(name.to_os_string());
+                existing = parent;
+            }
+            _ => return path,
+        }
+    }
+}
+
+/// [`state_dir_problem`] on the paths as written.
+fn lexical_state_problem(
+    root: &Path,
+    state: &Path,
+    templates: Option<&Path>,
+    out: &Path,
+) -> Option<String> {
     let state = lexical(&root.join(state));
     let inside = |dir: &Path| state.starts_with(lexical(&root.join(dir)));
     if inside(Path::new("participants")) {

@@ -88,7 +88,7 @@ pub struct RunPlan {
     pub access: Access,
     /// What the results depend on besides each participant's own files.
     pub key: RunKey,
-    /// State folder of the group-report ledger (`--state`, default `<out>.ledger`).
+    /// State folder of the group-report ledger (`--state`; see [`crate::group::ledger::resolve_dir`]).
     pub state_dir: PathBuf,
 }
 
