@@ -12,7 +12,10 @@
 //!   whole program's headline figures as printed, for the month-over-month table.
 //!
 //! Writes replace the file atomically (temporary file, then rename). An identical release
-//! (same period and the same published facts, e.g. a re-run) is recorded once.
+//! (same period and the same published facts, e.g. a re-run) is recorded once. A run holds an
+//! OS lock on `ledger.lock` from opening the ledger to recording its release, so runs into
+//! different output folders that share a ledger take turns: each is audited against the other's
+//! release, and neither overwrites the other's record (or the other's temporary file).
 
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
@@ -23,6 +26,7 @@ use super::{History, Published, ReleaseLine};
 
 const LEDGER_FILE: &str = "ledger.json";
 const KEY_FILE: &str = "secret.key";
+const LOCK_FILE: &str = "ledger.lock";
 const FORMAT: u32 = 1;
 
 /// One recorded release.
@@ -118,12 +122,33 @@ pub struct Ledger {
     secret: [u8; 32],
     releases: Vec<ReleaseRecord>,
     new: bool,
+    /// Held until the ledger is dropped (see the module documentation).
+    _lock: std::fs::File,
 }
 
 impl Ledger {
-    /// Opens (creating if needed) the ledger in `dir`.
+    /// Opens (creating if needed) the ledger in `dir`, waiting for another run that is using
+    /// it.
     pub fn open(dir: &Path) -> std::io::Result<Ledger> {
         std::fs::create_dir_all(dir).map_err(|e| io_err(dir, e))?;
+        let lock_path = dir.join(LOCK_FILE);
+        let lock = std::fs::File::options()
+            .create(true)
+            .truncate(false)
+            .write(true)
+            .open(&lock_path)
+            .map_err(|e| io_err(&lock_path, e))?;
+        match lock.try_lock() {
+            Ok(()) => {}
+            Err(std::fs::TryLockError::WouldBlock) => {
+                tracing::info!(
+                    "waiting for another run that is using the group-report ledger {}",
+                    dir.display()
+                );
+                lock.lock().map_err(|e| io_err(&lock_path, e))?;
+            }
+            Err(std::fs::TryLockError::Error(e)) => return Err(io_err(&lock_path, e)),
+        }
         let key_path = dir.join(KEY_FILE);
         let secret = match std::fs::read(&key_path) {
             Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
@@ -160,6 +185,7 @@ impl Ledger {
             secret,
             releases,
             new,
+            _lock: lock,
         })
     }
 

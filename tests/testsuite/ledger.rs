@@ -186,3 +186,62 @@ fn a_run_into_another_folder_is_audited_against_the_programs_ledger() {
             .is_file()
     );
 }
+
+/// Runs into different output folders may share one ledger (the program's): a run waits for
+/// another that is using it (an OS lock on `ledger.lock`, held from opening the ledger to
+/// recording the release), so neither loses the other's record. Here the test holds the lock:
+/// the run says it is waiting, and once the lock is released it finishes and records its release
+/// next to the first one.
+#[test]
+fn a_run_waits_for_another_using_the_same_ledger() {
+    use std::io::BufRead;
+    let t = ProgramTest::fixture("report-small");
+    let o = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let lock = std::fs::File::options()
+        .write(true)
+        .open(t.dir.join("reports.ledger/ledger.lock"))
+        .expect("the ledger's lock file");
+    lock.lock().unwrap();
+    let other = t.dir.parent().unwrap().join("august");
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+        .args([
+            "run",
+            &t.dir.to_string_lossy(),
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+        ])
+        .args(["--period", "2026-08", "--out", &other.to_string_lossy()])
+        .current_dir(&t.dir)
+        .env_clear()
+        .env("PATH", std::env::var("PATH").unwrap_or_default())
+        .env("HOME", t.dir.parent().unwrap())
+        .stdin(std::process::Stdio::null())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut stderr = std::io::BufReader::new(child.stderr.take().unwrap());
+    let mut seen = String::new();
+    loop {
+        let mut line = String::new();
+        if stderr.read_line(&mut line).unwrap() == 0 {
+            panic!("the run ended without waiting for the ledger: {seen}");
+        }
+        seen.push_str(&line);
+        if line.contains("waiting for another run that is using the group-report ledger") {
+            break;
+        }
+    }
+    assert!(!other.exists(), "nothing is in place while the run waits");
+    drop(lock);
+    std::io::copy(&mut stderr, &mut std::io::sink()).unwrap();
+    assert_eq!(child.wait().unwrap().code(), Some(0));
+    assert!(other.join("group/program.html").is_file());
+    let ledger: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(t.dir.join("reports.ledger/ledger.json")).unwrap())
+            .unwrap();
+    assert_eq!(ledger["releases"].as_array().unwrap().len(), 2);
+}
