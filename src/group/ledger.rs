@@ -286,18 +286,29 @@ fn fresh_key() -> [u8; 32] {
     key
 }
 
+/// Writes `bytes` to `path` through a new temporary file beside it (owner-only from its
+/// creation, so the key is never readable by others even for a moment). A leftover temporary
+/// file — or a link planted under its name — is removed first, never written through: the
+/// file is created with `O_EXCL`, so no link is followed and nothing outside the folder is
+/// overwritten.
 fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     let tmp = path.with_extension("tmp");
+    match std::fs::remove_file(&tmp) {
+        Ok(()) => {}
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+        Err(e) => return Err(io_err(&tmp, e)),
+    }
     {
-        let mut f = std::fs::File::create(&tmp).map_err(|e| io_err(&tmp, e))?;
+        let mut options = std::fs::File::options();
+        options.write(true).create_new(true);
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::OpenOptionsExt;
+            options.mode(0o600);
+        }
+        let mut f = options.open(&tmp).map_err(|e| io_err(&tmp, e))?;
         f.write_all(bytes).map_err(|e| io_err(&tmp, e))?;
         f.sync_all().map_err(|e| io_err(&tmp, e))?;
-    }
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::PermissionsExt;
-        std::fs::set_permissions(&tmp, std::fs::Permissions::from_mode(0o600))
-            .map_err(|e| io_err(&tmp, e))?;
     }
     std::fs::rename(&tmp, path).map_err(|e| io_err(path, e))
 }

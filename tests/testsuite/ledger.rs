@@ -245,3 +245,43 @@ fn a_run_waits_for_another_using_the_same_ledger() {
             .unwrap();
     assert_eq!(ledger["releases"].as_array().unwrap().len(), 2);
 }
+
+/// The ledger is saved through a temporary file beside it; a link planted under that name
+/// (`ledger.tmp`, `secret.tmp`) is removed, never written through, so a file elsewhere keeps
+/// its content.
+#[cfg(unix)]
+#[test]
+fn the_ledger_never_writes_through_a_planted_link() {
+    let t = ProgramTest::fixture("report-small");
+    let base = t.dir.parent().unwrap();
+    let state = base.join("state");
+    std::fs::create_dir(&state).unwrap();
+    let victims = [base.join("victim-ledger.txt"), base.join("victim-key.txt")];
+    for v in &victims {
+        std::fs::write(v, "keep me\n").unwrap();
+    }
+    std::os::unix::fs::symlink(&victims[0], state.join("ledger.tmp")).unwrap();
+    std::os::unix::fs::symlink(&victims[1], state.join("secret.tmp")).unwrap();
+    let state_s = state.to_string_lossy().into_owned();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--state",
+        &state_s,
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+    for v in &victims {
+        assert_eq!(
+            std::fs::read_to_string(v).unwrap(),
+            "keep me\n",
+            "{}",
+            v.display()
+        );
+    }
+    assert!(state.join("ledger.json").is_file());
+    assert_eq!(std::fs::read(state.join("secret.key")).unwrap().len(), 32);
+}
