@@ -746,16 +746,47 @@ fn new_file(p: &Path, _access: Access) -> Result<File, StagingError> {
         .map_err(io(p))
 }
 
-/// Writes `bytes` to a new file at `path`, creating its folders; an existing file is left as it
-/// is (`Ok(false)`). For `templates dump`, which writes into a folder the user names rather than
-/// an output folder. An error names the path that failed.
-pub fn write_new_file(path: &Path, bytes: &[u8]) -> Result<bool, (PathBuf, std::io::Error)> {
-    if path.exists() {
+/// Writes `bytes` to a new file `rel` (a relative path with `/`) inside `dir`, creating its
+/// folders; an existing file — or a link, even one to nothing — is left as it is (`Ok(false)`).
+/// For `templates dump`, which writes into a folder the user names rather than an output
+/// folder. Nothing is written outside `dir`: a folder on the way that is a link is an error,
+/// and the file is created only if nothing is at its name (no link is followed, not even one
+/// planted in between). An error names the path that failed.
+pub fn write_new_file(
+    dir: &Path,
+    rel: &str,
+    bytes: &[u8],
+) -> Result<bool, (PathBuf, std::io::Error)> {
+    let path = dir.join(rel);
+    if fs::symlink_metadata(&path).is_ok() {
         return Ok(false);
+    }
+    let mut folder = dir.to_path_buf();
+    let folders: Vec<&str> = rel.split('/').collect();
+    for name in &folders[..folders.len() - 1] {
+        folder.push(name);
+        match fs::symlink_metadata(&folder) {
+            Ok(m) if m.is_dir() => {}
+            Ok(_) => {
+                return Err((
+                    folder,
+                    std::io::Error::other(
+                        "is a link or a file, not a folder; nothing is written through it",
+                    ),
+                ));
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+            Err(e) => return Err((folder, e)),
+        }
     }
     if let Some(p) = path.parent() {
         fs::create_dir_all(p).map_err(|e| (p.to_path_buf(), e))?;
     }
-    fs::write(path, bytes).map_err(|e| (path.to_path_buf(), e))?;
+    File::options()
+        .write(true)
+        .create_new(true)
+        .open(&path)
+        .and_then(|mut f| f.write_all(bytes))
+        .map_err(|e| (path.clone(), e))?;
     Ok(true)
 }

@@ -49,6 +49,10 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
     let mut anchor_size: Vec<u64> = Vec::new();
     // Open lists and mappings: (anchor id, expanded count when it opened).
     let mut open: Vec<(usize, u64)> = Vec::new();
+    // For each open list or mapping (aligned with `open`): for a mapping, whether its next node
+    // is a key, and the plain keys seen so far with their line. serde_yaml refuses a key given
+    // twice but names the mapping's first line, not the key; here it is located.
+    let mut maps: Vec<Option<(bool, std::collections::HashMap<String, usize>)>> = Vec::new();
     let (mut events, mut aliases, mut expanded) = (0u64, 0u64, 0u64);
     let set_size = |sizes: &mut Vec<u64>, id: usize, size: u64| {
         if id > 0 && id <= MAX_YAML_EVENTS as usize {
@@ -77,15 +81,47 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
             |d: Diagnostic| d.at(span.start.line() as u64, Some(span.start.col() as u64 + 1));
         events += 1;
         expanded += 1;
+        let is_node = matches!(
+            event,
+            Event::Scalar(..)
+                | Event::SequenceStart(..)
+                | Event::MappingStart(..)
+                | Event::Alias(_)
+        );
+        if is_node && let Some(Some((expect_key, seen))) = maps.last_mut() {
+            if *expect_key
+                && let Event::Scalar(key, ..) = &event
+                && key.as_ref() != "<<"
+            {
+                let line = span.start.line();
+                if let Some(first) = seen.insert(key.to_string(), line) {
+                    return Err(here(
+                        Diagnostic::error(
+                            file,
+                            format!("the key `{key}` is given twice in one mapping (first on line {first})"),
+                        )
+                        .expected("each key once")
+                        .found(format!("`{key}` again")),
+                    )
+                    .hint("keep only one of them: YAML does not say which one counts"));
+                }
+            }
+            *expect_key = !*expect_key;
+        }
         match event {
             Event::Scalar(_, _, anchor, _) => set_size(&mut anchor_size, anchor, 1),
             Event::SequenceStart(anchor, _) | Event::MappingStart(anchor, _) => {
                 open.push((anchor, expanded - 1));
+                maps.push(
+                    matches!(event, Event::MappingStart(..))
+                        .then(|| (true, std::collections::HashMap::new())),
+                );
                 if open.len() > MAX_YAML_DEPTH {
                     return Err(here(too_deep(file)));
                 }
             }
             Event::SequenceEnd | Event::MappingEnd => {
+                maps.pop();
                 if let Some((anchor, start)) = open.pop() {
                     set_size(&mut anchor_size, anchor, expanded - start);
                 }
@@ -327,6 +363,23 @@ mod tests {
         assert!(d.message.contains("unknown key `colour`"), "{d}");
         assert!(!d.message.contains("at line"), "{d}");
         assert!(d.hint.is_some());
+    }
+
+    #[test]
+    fn a_key_given_twice_is_located_at_its_second_occurrence() {
+        // serde_yaml alone names line 1, column 1 (the mapping's start) and nothing else.
+        let text = "name: a\ninner:\n  start: 2026-04-01\n  count: 3\n  count: 4\n";
+        let d = from_str::<Outer>(text, "program.yaml").unwrap_err();
+        assert_eq!((d.line, d.column), (Some(5), Some(3)), "{d}");
+        assert!(d.message.contains("`count` is given twice"), "{d}");
+        assert!(d.message.contains("first on line 4"), "{d}");
+        assert_eq!(d.expected.as_deref(), Some("each key once"));
+        assert_eq!(d.found.as_deref(), Some("`count` again"));
+        // In a flow mapping, at its column; the same key in two mappings, or a value equal
+        // to a key, is no duplicate.
+        let d = check_budget("a: {x: 1, y: 2, x: 3}\n", "f.yaml").unwrap_err();
+        assert_eq!((d.line, d.column), (Some(1), Some(17)), "{d}");
+        assert!(check_budget("a: {x: 1}\nb: {x: a}\nc: [x, x]\n", "f.yaml").is_ok());
     }
 
     #[test]

@@ -177,8 +177,9 @@ pub struct RunArgs {
     pub group_readable: bool,
     /// State folder of the group-report ledger (what earlier group reports published; each
     /// new one is audited against it). Default: program.yaml's `report.state_dir` (relative to
-    /// the program folder), else the output folder's name plus `.ledger`, beside it; this
-    /// option wins over `report.state_dir`.
+    /// the program folder), else the ledger of the program's own output folder (`report.out`)
+    /// when it has one, else the output folder's name plus `.ledger`, beside it; this option
+    /// wins over `report.state_dir`. A ledger reached through a link is judged where it is.
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
 }
@@ -204,7 +205,8 @@ pub struct MergeArgs {
     #[arg(long)]
     pub group_readable: bool,
     /// State folder of the group-report ledger (default: program.yaml's `report.state_dir`,
-    /// else `<out>.ledger` beside the output; this option wins over `report.state_dir`).
+    /// else the ledger of the program's own `report.out` when it has one, else `<out>.ledger`
+    /// beside the output; this option wins over `report.state_dir`).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
 }

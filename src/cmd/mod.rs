@@ -140,9 +140,9 @@ fn dump_templates(dir: &Path) -> i32 {
     let mut written = 0;
     for (name, text) in crate::report::templates::BUILTIN {
         let path = dir.join(name);
-        match crate::output::write_new_file(&path, text.as_bytes()) {
+        match crate::output::write_new_file(dir, name, text.as_bytes()) {
             Ok(true) => written += 1,
-            Ok(false) => eprintln!("skipped {} (exists)", path.display()),
+            Ok(false) => eprintln!("skipped {} (exists, or is a link)", path.display()),
             Err((p, e)) => {
                 eprintln!("error: {}: {e}", p.display());
                 return exit_code::OUTPUT_FAILED;

@@ -12,7 +12,10 @@
 //!   whole program's headline figures as printed, for the month-over-month table.
 //!
 //! Writes replace the file atomically (temporary file, then rename). An identical release
-//! (same period and the same published facts, e.g. a re-run) is recorded once.
+//! (same period and the same published facts, e.g. a re-run) is recorded once. A run holds an
+//! OS lock on `ledger.lock` from opening the ledger to recording its release, so runs into
+//! different output folders that share a ledger take turns: each is audited against the other's
+//! release, and neither overwrites the other's record (or the other's temporary file).
 
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
@@ -23,6 +26,7 @@ use super::{History, Published, ReleaseLine};
 
 const LEDGER_FILE: &str = "ledger.json";
 const KEY_FILE: &str = "secret.key";
+const LOCK_FILE: &str = "ledger.lock";
 const FORMAT: u32 = 1;
 
 /// One recorded release.
@@ -63,9 +67,13 @@ pub fn default_dir(out_dir: &Path) -> PathBuf {
 }
 
 /// The ledger folder of a run: `--state DIR` when given (relative to the working folder), else
-/// `report.state_dir` of program.yaml (relative to the program folder), else
-/// [`default_dir`]. Refused (with the reason) when it would be inside the program's inputs or
-/// inside the output folder.
+/// `report.state_dir` of program.yaml (relative to the program folder), else the ledger of the
+/// program's own output folder (`report.out`) when one exists there — a run into another
+/// folder (`--out`: a re-issue, a preview, a folder per month) is then audited against every
+/// release the program's runs recorded, instead of a new, empty ledger against which any
+/// difference of two reports would go unseen — else [`default_dir`] of the output folder.
+/// Refused (with the reason) when it would be inside the program's inputs or inside the output
+/// folder.
 pub fn resolve_dir(
     cli: Option<&Path>,
     program: &crate::program::Program,
@@ -75,7 +83,17 @@ pub fn resolve_dir(
     let (dir, named_by) = match (cli, &program.def.report.state_dir) {
         (Some(d), _) => (cwd.join(d), "--state"),
         (None, Some(d)) => (cwd.join(&program.root).join(d), "report.state_dir"),
-        (None, None) => return Ok(default_dir(out_dir)),
+        (None, None) => {
+            let program_out = cwd.join(&program.root).join(&program.def.report.out);
+            let programs = default_dir(&program_out);
+            let existing =
+                std::fs::symlink_metadata(programs.join(LEDGER_FILE)).is_ok_and(|m| m.is_file());
+            return Ok(if existing {
+                programs
+            } else {
+                default_dir(out_dir)
+            });
+        }
     };
     let root = cwd.join(&program.root);
     let out = cwd.join(out_dir);
@@ -103,12 +121,34 @@ pub struct Ledger {
     dir: PathBuf,
     secret: [u8; 32],
     releases: Vec<ReleaseRecord>,
+    new: bool,
+    /// Held until the ledger is dropped (see the module documentation).
+    _lock: std::fs::File,
 }
 
 impl Ledger {
-    /// Opens (creating if needed) the ledger in `dir`.
+    /// Opens (creating if needed) the ledger in `dir`, waiting for another run that is using
+    /// it.
     pub fn open(dir: &Path) -> std::io::Result<Ledger> {
         std::fs::create_dir_all(dir).map_err(|e| io_err(dir, e))?;
+        let lock_path = dir.join(LOCK_FILE);
+        let lock = std::fs::File::options()
+            .create(true)
+            .truncate(false)
+            .write(true)
+            .open(&lock_path)
+            .map_err(|e| io_err(&lock_path, e))?;
+        match lock.try_lock() {
+            Ok(()) => {}
+            Err(std::fs::TryLockError::WouldBlock) => {
+                tracing::info!(
+                    "waiting for another run that is using the group-report ledger {}",
+                    dir.display()
+                );
+                lock.lock().map_err(|e| io_err(&lock_path, e))?;
+            }
+            Err(std::fs::TryLockError::Error(e)) => return Err(io_err(&lock_path, e)),
+        }
         let key_path = dir.join(KEY_FILE);
         let secret = match std::fs::read(&key_path) {
             Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
@@ -121,6 +161,7 @@ impl Ledger {
             Err(e) => return Err(io_err(&key_path, e)),
         };
         let ledger_path = dir.join(LEDGER_FILE);
+        let mut new = false;
         let releases = match std::fs::read(&ledger_path) {
             Ok(bytes) => {
                 let f: LedgerFile =
@@ -133,14 +174,29 @@ impl Ledger {
                 }
                 f.releases
             }
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => Vec::new(),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                new = true;
+                Vec::new()
+            }
             Err(e) => return Err(io_err(&ledger_path, e)),
         };
         Ok(Ledger {
             dir: dir.to_path_buf(),
             secret,
             releases,
+            new,
+            _lock: lock,
         })
+    }
+
+    /// Whether the ledger held no release file when opened (its first release is being made).
+    pub fn is_new(&self) -> bool {
+        self.new
+    }
+
+    /// The ledger's folder.
+    pub fn dir(&self) -> &Path {
+        &self.dir
     }
 
     /// What earlier releases of `program` published, for the audit.
@@ -230,18 +286,29 @@ fn fresh_key() -> [u8; 32] {
     key
 }
 
+/// Writes `bytes` to `path` through a new temporary file beside it (owner-only from its
+/// creation, so the key is never readable by others even for a moment). A leftover temporary
+/// file — or a link planted under its name — is removed first, never written through: the
+/// file is created with `O_EXCL`, so no link is followed and nothing outside the folder is
+/// overwritten.
 fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     let tmp = path.with_extension("tmp");
+    match std::fs::remove_file(&tmp) {
+        Ok(()) => {}
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+        Err(e) => return Err(io_err(&tmp, e)),
+    }
     {
-        let mut f = std::fs::File::create(&tmp).map_err(|e| io_err(&tmp, e))?;
+        let mut options = std::fs::File::options();
+        options.write(true).create_new(true);
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::OpenOptionsExt;
+            options.mode(0o600);
+        }
+        let mut f = options.open(&tmp).map_err(|e| io_err(&tmp, e))?;
         f.write_all(bytes).map_err(|e| io_err(&tmp, e))?;
         f.sync_all().map_err(|e| io_err(&tmp, e))?;
-    }
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::PermissionsExt;
-        std::fs::set_permissions(&tmp, std::fs::Permissions::from_mode(0o600))
-            .map_err(|e| io_err(&tmp, e))?;
     }
     std::fs::rename(&tmp, path).map_err(|e| io_err(path, e))
 }

@@ -92,7 +92,10 @@ impl ModuleSet {
             s.push(' ');
             match &e.command {
                 None => s.push_str("builtin"),
-                Some(c) => canonical_json(&serde_json::json!(c), &mut s),
+                Some(c) => {
+                    let shown: Vec<String> = c.iter().map(|w| shown_command_word(w)).collect();
+                    canonical_json(&serde_json::json!(shown), &mut s)
+                }
             }
             s.push(' ');
             canonical_json(&e.settings, &mut s);
@@ -100,6 +103,32 @@ impl ModuleSet {
         }
         s
     }
+}
+
+/// A word of an external module's `command:` as the fingerprint shows it. The fingerprint is
+/// written into `manifest.json` and `shard.json`, which travel with the reports, so an absolute
+/// path (`/home/ana/modules/steps.py`, also after `=` in `--config=/…`) or one from the home
+/// folder (`~/…`) is shown by its file name alone (`…/steps.py`): no output names the machine's
+/// folders, its user or their home. Bare names and paths relative to the program folder are
+/// shown as written. (The module is still known by its name, version and settings.)
+pub fn shown_command_word(word: &str) -> String {
+    let (prefix, path) = match word.find('=') {
+        Some(i) if !word.starts_with('/') && !word.starts_with('~') => word.split_at(i + 1),
+        _ => ("", word),
+    };
+    let outside = path.starts_with('/')
+        || path.starts_with('~')
+        || path.starts_with('\\')
+        || path.get(1..3).is_some_and(|s| s == ":\\" || s == ":/");
+    if !outside {
+        return word.to_string();
+    }
+    let name = path
+        .trim_end_matches(['/', '\\'])
+        .rsplit(['/', '\\'])
+        .next()
+        .unwrap_or_default();
+    format!("{prefix}…/{name}")
 }
 
 /// JSON with object keys sorted, no spaces.

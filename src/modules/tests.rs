@@ -498,3 +498,18 @@ fn builtin_ids_are_unique_and_requirements_come_first() {
         seen.push(spec.id);
     }
 }
+
+#[test]
+fn command_words_with_absolute_paths_are_shown_by_file_name() {
+    use super::registry::shown_command_word as shown;
+    assert_eq!(shown("/home/ana/bin/steps.py"), "…/steps.py");
+    assert_eq!(shown("~/modules/steps.py"), "…/steps.py");
+    assert_eq!(shown("--config=/home/ana/cfg.json"), "--config=…/cfg.json");
+    assert_eq!(shown("C:\\Users\\ana\\steps.exe"), "…/steps.exe");
+    assert_eq!(shown("/opt/mods/"), "…/mods");
+    // As written: bare names, relative paths, options without a path.
+    assert_eq!(shown("python3"), "python3");
+    assert_eq!(shown("plugins/steps.py"), "plugins/steps.py");
+    assert_eq!(shown("../mods/steps.py"), "../mods/steps.py");
+    assert_eq!(shown("--goal=8000"), "--goal=8000");
+}

@@ -90,6 +90,48 @@ pub fn state_dir_problem(
     templates: Option<&Path>,
     out: &Path,
 ) -> Option<String> {
+    lexical_state_problem(root, state, templates, out).or_else(|| {
+        // The same once every link is resolved: a state folder reached through a link (or
+        // inside a `participants/` that is itself a link) is refused like one named directly.
+        let root = real_path(root);
+        let state = real_path(&root.join(state));
+        let templates = templates.map(|t| real_path(&root.join(t)));
+        let out = real_path(&root.join(out));
+        if state.starts_with(real_path(&root.join("participants"))) {
+            return Some("inside participants/, among the inputs (through a link)".into());
+        }
+        lexical_state_problem(&root, &state, templates.as_deref(), &out)
+            .map(|why| format!("{why} (through a link)"))
+    })
+}
+
+/// `path` with every link resolved: the nearest folder on it that exists, canonicalized, plus
+/// the names that do not exist yet (`.` and `..` resolved lexically first).
+fn real_path(path: &Path) -> PathBuf {
+    let path = lexical(path);
+    let mut missing = Vec::new();
+    let mut existing = path.as_path();
+    loop {
+        if let Ok(real) = std::fs::canonicalize(existing) {
+            return real.join(missing.iter().rev().collect::<PathBuf>());
+        }
+        match (existing.parent(), existing.file_name()) {
+            (Some(parent), Some(name)) => {
+                missing.push(name.to_os_string());
+                existing = parent;
+            }
+            _ => return path,
+        }
+    }
+}
+
+/// [`state_dir_problem`] on the paths as written.
+fn lexical_state_problem(
+    root: &Path,
+    state: &Path,
+    templates: Option<&Path>,
+    out: &Path,
+) -> Option<String> {
     let state = lexical(&root.join(state));
     let inside = |dir: &Path| state.starts_with(lexical(&root.join(dir)));
     if inside(Path::new("participants")) {
@@ -104,6 +146,9 @@ pub fn state_dir_problem(
         None
     }
 }
+
+/// The smallest `privacy.min_cell_size` accepted (see [`validate_program`]).
+pub const MIN_CELL_FLOOR: u32 = 3;
 
 /// Semantic checks on a parsed program; returns every problem found.
 pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagnostic> {
@@ -173,14 +218,25 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 .hint("list at least one module, e.g. `modules: [ {id: trend} ]`"),
         );
     }
-    if def.privacy.min_cell_size < 1 {
+    // Below 3 there is no small-cell protection to speak of: 1 prints every count, 2 every
+    // count but one person's, so a group report would give a pair's figures away. Threshold
+    // rules of statistical disclosure control start at 3 (from memory: Hundepool et al.,
+    // Statistical Disclosure Control, Wiley 2012, the "threshold rule"); the default is 11 (CMS
+    // cell size suppression policy).
+    if def.privacy.min_cell_size < MIN_CELL_FLOOR {
         out.push(
             err(
                 "privacy.min_cell_size",
-                "the minimum cell size must be at least 1".into(),
+                format!(
+                    "the minimum cell size must be at least {MIN_CELL_FLOOR}: below it a group \
+                     report would print the figures of one or two people"
+                ),
             )
-            .expected("a whole number ≥ 1 (11 is the usual choice)")
-            .found(def.privacy.min_cell_size.to_string()),
+            .expected(format!(
+                "a whole number ≥ {MIN_CELL_FLOOR} (11 is the usual choice)"
+            ))
+            .found(def.privacy.min_cell_size.to_string())
+            .hint("use 11 unless your data protection policy names another threshold"),
         );
     }
     if def.report.formats.is_empty() {
@@ -751,6 +807,28 @@ input:
         assert_eq!(by("program.end").line, Some(6));
         assert_eq!(by("modules[1].id").line, Some(9));
         assert_eq!(by("input.delimiter").line, Some(17));
+    }
+
+    #[test]
+    fn a_minimum_cell_size_below_three_is_refused() {
+        let base = "format_version: 1\nprogram: {id: p, title: P, start: 2026-04-01, end: 2026-09-30}\n\
+                    modules: [{id: trend}]\n";
+        for (v, ok) in [(0, false), (1, false), (2, false), (3, true), (11, true)] {
+            let text = format!("{base}privacy:\n  min_cell_size: {v}\n");
+            match parse_program(root(), &text) {
+                Ok(p) => {
+                    assert!(ok, "{v} accepted");
+                    assert_eq!(p.def.privacy.min_cell_size, v);
+                }
+                Err(e) => {
+                    assert!(!ok, "{v} refused: {e:?}");
+                    assert_eq!(e.len(), 1, "{e:?}");
+                    assert_eq!(e[0].field.as_deref(), Some("privacy.min_cell_size"));
+                    assert_eq!(e[0].line, Some(5), "{e:?}");
+                    assert_eq!(e[0].found.as_deref(), Some(v.to_string().as_str()));
+                }
+            }
+        }
     }
 
     #[test]

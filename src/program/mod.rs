@@ -200,7 +200,8 @@ pub struct ReportDef {
     #[serde(default = "default_out")]
     pub out: PathBuf,
     /// State folder of the group-report ledger (what earlier group reports published),
-    /// relative to the program folder. Default: the output folder's name plus `.ledger`,
+    /// relative to the program folder. Default: the ledger beside `report.out` when it exists
+    /// (also for runs into another folder), else the output folder's name plus `.ledger`,
     /// beside it. Never inside the program's inputs (`participants/`, the templates folder)
     /// nor inside the output folder; `--state DIR` on the command line wins.
     #[serde(default)]

@@ -186,9 +186,233 @@ fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, Templa
             .map_err(|e| e.to_string())
             .and_then(|b| String::from_utf8(b).map_err(|_| "the file is not UTF-8 text".into()))
             .map_err(|e| TemplateError::File(path.display().to_string(), e))?;
+        if let Some((at, what)) = override_problem(&text) {
+            let line = text[..at].matches('\n').count() + 1;
+            let column = text[..at].rsplit('\n').next().unwrap_or("").chars().count() + 1;
+            return Err(TemplateError::File(
+                format!("{}:{line}:{column}", path.display()),
+                what,
+            ));
+        }
         out.push((name, text, path.display().to_string()));
     }
     Ok(out)
+}
+
+/// Elements that run code, embed another document or send the page somewhere: never part of a
+/// report.
+const ACTIVE_ELEMENTS: &[&str] = &[
+    "script", "iframe", "frame", "frameset", "object", "embed", "applet", "base", "form", "portal",
+];
+
+/// Attributes that hold a URL the browser may load or follow (HTML Living Standard's URL-valued
+/// attributes, and SVG's `xlink:href`; from memory).
+const URL_ATTRIBUTES: &[&str] = &[
+    "href",
+    "src",
+    "srcset",
+    "imagesrcset",
+    "action",
+    "formaction",
+    "poster",
+    "data",
+    "background",
+    "cite",
+    "longdesc",
+    "ping",
+    "manifest",
+    "xlink:href",
+    "codebase",
+    "archive",
+    "lowsrc",
+    "dynsrc",
+    "profile",
+];
+
+/// Why a template of the program's own folder cannot be used, if it cannot: the byte offset of
+/// the problem and what is wrong. A report is self-contained and prints input text only
+/// escaped, whatever template made it:
+/// - no raw output (`{{{name}}}`, `{{&name}}`): it would print a name or note from an input
+///   file as HTML (a `<script>` in a participant's name would run in their report);
+/// - no element that runs code or embeds or submits to another page (`<script>`, `<iframe>`,
+///   `<form>` …) and no event-handler attribute (`onload=` …);
+/// - no URL other than a link within the page (`href="#site-0"`) — not in `href`, `src` and
+///   the other URL attributes, nor in CSS (`url(…)`, `@import`): a report opened on a
+///   participant's phone would otherwise fetch an outside address (telling it who opened which
+///   report) or carry a path of the machine that made it.
+fn override_problem(text: &str) -> Option<(usize, String)> {
+    // Byte offsets throughout (the lower-case copy keeps them); text is only sliced at ASCII
+    // delimiters, which are never inside a multi-byte character.
+    let b = text.to_ascii_lowercase().into_bytes();
+    let find = |from: usize, needle: &[u8]| -> Option<usize> {
+        b.get(from..)?
+            .windows(needle.len())
+            .position(|w| w == needle)
+            .map(|p| from + p)
+    };
+    let mut at = 0;
+    while let Some(i) = find(at, b"{{") {
+        let mut j = i + 2;
+        while b.get(j) == Some(&b'~') {
+            j += 1;
+        }
+        if matches!(b.get(j), Some(b'{' | b'&')) {
+            return Some((
+                i,
+                "raw output (`{{{ }}}` or `{{& }}`) is not allowed in a report template: it \
+                 would print text from input files as HTML; print values with double braces \
+                 (`{{name}}`), which escape them, and charts with {{chart \"name\"}}"
+                    .into(),
+            ));
+        }
+        at = i + 2;
+    }
+    // CSS anywhere in the template (a <style> element, a partial with the style sheet).
+    if let Some(p) = css_url(&b, 0) {
+        return Some(p);
+    }
+    let is_space = |c: u8| c.is_ascii_whitespace();
+    let mut i = 0;
+    while i < b.len() {
+        if b[i..].starts_with(b"<!--") {
+            i = find(i, b"-->").map_or(b.len(), |e| e + 3);
+            continue;
+        }
+        if b[i] != b'<' || !b.get(i + 1).is_some_and(u8::is_ascii_alphabetic) {
+            i += 1;
+            continue;
+        }
+        let start = i;
+        i += 1;
+        let name_start = i;
+        while i < b.len() && (b[i].is_ascii_alphanumeric() || b[i] == b'-' || b[i] == b':') {
+            i += 1;
+        }
+        let element = String::from_utf8_lossy(&b[name_start..i]).into_owned();
+        if ACTIVE_ELEMENTS.contains(&element.as_str()) {
+            return Some((
+                start,
+                format!(
+                    "`<{element}>` is not allowed in a report template: a report runs no code \
+                     and embeds or submits to no other page"
+                ),
+            ));
+        }
+        // Attributes, up to the end of the tag; handlebars expressions inside are skipped.
+        loop {
+            while i < b.len() && is_space(b[i]) {
+                i += 1;
+            }
+            if i >= b.len() || b[i] == b'>' {
+                break;
+            }
+            if b[i..].starts_with(b"{{") {
+                i = find(i, b"}}").map_or(b.len(), |e| e + 2);
+                continue;
+            }
+            if b[i] == b'/' || b[i] == b'=' {
+                i += 1;
+                continue;
+            }
+            let attr_start = i;
+            while i < b.len()
+                && !is_space(b[i])
+                && !matches!(b[i], b'=' | b'>' | b'/')
+                && !b[i..].starts_with(b"{{")
+            {
+                i += 1;
+            }
+            let attr = String::from_utf8_lossy(&b[attr_start..i]).into_owned();
+            let (mut value_at, mut value_end) = (i, i);
+            let mut j = i;
+            while j < b.len() && is_space(b[j]) {
+                j += 1;
+            }
+            if b.get(j) == Some(&b'=') {
+                j += 1;
+                while j < b.len() && is_space(b[j]) {
+                    j += 1;
+                }
+                if let Some(&q) = b.get(j).filter(|&&q| q == b'"' || q == b'\'') {
+                    value_at = j + 1;
+                    value_end = find(value_at, &[q]).unwrap_or(b.len());
+                    i = (value_end + 1).min(b.len());
+                } else {
+                    value_at = j;
+                    value_end = j;
+                    while value_end < b.len() && !is_space(b[value_end]) && b[value_end] != b'>' {
+                        value_end += 1;
+                    }
+                    i = value_end;
+                }
+            }
+            if attr.starts_with("on") || attr == "http-equiv" || attr == "srcdoc" {
+                return Some((
+                    attr_start,
+                    format!(
+                        "the attribute `{attr}` is not allowed in a report template: a report \
+                         runs no code and never reloads or redirects itself"
+                    ),
+                ));
+            }
+            let value = &b[value_at..value_end];
+            let trimmed = value.trim_ascii();
+            if URL_ATTRIBUTES.contains(&attr.as_str())
+                && !trimmed.is_empty()
+                && !trimmed.starts_with(b"#")
+            {
+                return Some((
+                    value_at,
+                    format!(
+                        "`{attr}` names an address outside the report (`{}`); a report is \
+                         self-contained: only links within the page (`#…`) are allowed; write \
+                         an outside address as text",
+                        &text[value_at..value_end]
+                    ),
+                ));
+            }
+            if attr == "style"
+                && let Some((at, what)) = css_url(value, value_at)
+            {
+                return Some((at, what));
+            }
+        }
+        i += 1;
+    }
+    None
+}
+
+/// The first CSS reference to an outside resource in `css` (lower case), as (offset + its
+/// position, what): `@import`, or `url(…)` that is not a fragment (`url(#clip)`).
+fn css_url(css: &[u8], offset: usize) -> Option<(usize, String)> {
+    for (at, w) in css.windows(7).enumerate() {
+        if w == b"@import" {
+            return Some((
+                offset + at,
+                "`@import` is not allowed in a report template: a report loads no outside \
+                 style sheet"
+                    .into(),
+            ));
+        }
+    }
+    for (at, w) in css.windows(4).enumerate() {
+        if w == b"url(" {
+            let arg = css[at + 4..]
+                .trim_ascii_start()
+                .strip_prefix(b"\"")
+                .or_else(|| css[at + 4..].trim_ascii_start().strip_prefix(b"'"))
+                .unwrap_or(css[at + 4..].trim_ascii_start());
+            if !arg.starts_with(b"#") {
+                return Some((
+                    offset + at,
+                    "`url(…)` is not allowed in a report template's CSS: a report loads \
+                     nothing from outside itself"
+                        .into(),
+                ));
+            }
+        }
+    }
+    None
 }
 
 /// Partials that include each other (a → b → a) overflow the stack in handlebars: refuse them.

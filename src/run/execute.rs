@@ -295,33 +295,63 @@ pub fn finish(
     let mut timing = Timing::default();
     let (summary, all_diags, rows, inputs) = tally(discovery, records);
 
-    // Group step and group reports.
+    // Group step and group reports. A run of hand-picked participants (`--only`, also when
+    // its shards are merged) writes none: a group report of everyone but one, set against the
+    // complete one, would give that one person's figures, and a partial output has a ledger
+    // of its own (beside its own folder), so the audit across releases would not see it.
     let phase = Instant::now();
-    let opts = GroupOptions {
-        min_cell_size: plan.program.def.privacy.min_cell_size,
-        group_by: plan.program.def.report.group_by.clone(),
-        confidence: 0.95,
-    };
-    // Group-report ledger hook: audit against what earlier reports published, record after
-    // the outputs are in place.
-    let mut ledger = group::ledger::Ledger::open(&plan.state_dir)
-        .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
-    let program_id = plan.program.info.id.clone();
-    let (period_from, period_to) = (plan.period.from.to_string(), plan.period.to.to_string());
-    let (mut group, published) =
-        group::summarize_release(&rows, &opts, &ledger.history(&program_id));
-    let headline = report::group::headline(&group, &format!("{period_from} to {period_to}"));
-    group.releases = ledger.earlier_headlines(&program_id, &period_to);
-    group.releases.push(headline.clone());
-    let group_ctx = report::group_context(
-        &plan.report_scope(),
-        &group,
-        summary.participants_with_errors,
-    );
-    let group_files = report::render_group(templates, &group_ctx, &plan.formats)
-        .map_err(|e| RunError::Render(e.to_string()))?;
-    for (name, bytes) in group_files {
-        staging.write(&format!("group/{name}"), &bytes)?;
+    let mut release = None;
+    let mut group = None;
+    if plan.only.is_empty() {
+        let opts = GroupOptions {
+            min_cell_size: plan.program.def.privacy.min_cell_size,
+            group_by: plan.program.def.report.group_by.clone(),
+            confidence: 0.95,
+        };
+        // Group-report ledger hook: audit against what earlier reports published, record after
+        // the outputs are in place.
+        let ledger = group::ledger::Ledger::open(&plan.state_dir)
+            .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
+        if ledger.is_new() && plan.out_named_by == "--out" {
+            tracing::warn!(
+                "group-report ledger {}: a new ledger, so this group report is audited against \
+                 no earlier release; if earlier group reports of this program were written \
+                 elsewhere, run with --state naming their ledger folder (or set \
+                 report.state_dir), or a difference of two reports may give away a small \
+                 group's figures",
+                ledger.dir().display()
+            );
+        }
+        let program_id = plan.program.info.id.clone();
+        let (period_from, period_to) = (plan.period.from.to_string(), plan.period.to.to_string());
+        let (mut g, published) =
+            group::summarize_release(&rows, &opts, &ledger.history(&program_id));
+        let headline = report::group::headline(&g, &format!("{period_from} to {period_to}"));
+        g.releases = ledger.earlier_headlines(&program_id, &period_to);
+        g.releases.push(headline.clone());
+        let group_ctx =
+            report::group_context(&plan.report_scope(), &g, summary.participants_with_errors);
+        let group_files = report::render_group(templates, &group_ctx, &plan.formats)
+            .map_err(|e| RunError::Render(e.to_string()))?;
+        for (name, bytes) in group_files {
+            staging.write(&format!("group/{name}"), &bytes)?;
+        }
+        release = Some((
+            ledger,
+            group::ledger::release_record(
+                &program_id,
+                &period_from,
+                &period_to,
+                &plan.as_of.to_string(),
+                headline,
+                published,
+            ),
+        ));
+        group = Some(g);
+    } else {
+        tracing::info!(
+            "--only: no group report (a group report covers the whole program, never a hand-picked subset)"
+        );
     }
     timing.group_s = phase.elapsed().as_secs_f64();
 
@@ -341,7 +371,7 @@ pub fn finish(
     // Tidy metrics.
     let phase = Instant::now();
     let ids: Vec<String> = records.iter().map(|r| r.id.clone()).collect();
-    write_tidy(plan, columns, &ids, &staging, &all_diags, &group)
+    write_tidy(plan, columns, &ids, &staging, &all_diags, group.as_ref())
         .map_err(|e| RunError::Output(e.to_string()))?;
     timing.tidy_s = phase.elapsed().as_secs_f64();
 
@@ -351,16 +381,11 @@ pub fn finish(
         .map_err(|e| RunError::Output(e.to_string()))?;
     staging.write("manifest.json", &manifest)?;
     let outputs: OutputSet = staging.commit()?;
-    ledger
-        .record(group::ledger::release_record(
-            &program_id,
-            &period_from,
-            &period_to,
-            &plan.as_of.to_string(),
-            headline,
-            published,
-        ))
-        .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
+    if let Some((mut ledger, record)) = release {
+        ledger
+            .record(record)
+            .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
+    }
     timing.commit_s = phase.elapsed().as_secs_f64();
     tracing::debug!("{} output files", outputs.files);
     Ok((summary, timing))
@@ -566,7 +591,7 @@ fn write_tidy(
     ids: &[String],
     staging: &Staging,
     diags: &[Diagnostic],
-    group: &group::GroupReport,
+    group: Option<&group::GroupReport>,
 ) -> Result<(), tidy::TidyError> {
     let mut participants = staging.create("metrics/participants.csv")?;
     let mut json = staging.create("metrics/participants.json")?;
@@ -597,6 +622,8 @@ fn write_tidy(
     weekly.finish()?;
     tables.finish()?;
     staging.write("metrics/data-quality.csv", &tidy::data_quality(diags)?)?;
-    staging.write("metrics/group.json", &tidy::group_json(group)?)?;
+    if let Some(group) = group {
+        staging.write("metrics/group.json", &tidy::group_json(group)?)?;
+    }
     Ok(())
 }

@@ -88,7 +88,7 @@ pub struct RunPlan {
     pub access: Access,
     /// What the results depend on besides each participant's own files.
     pub key: RunKey,
-    /// State folder of the group-report ledger (`--state`, default `<out>.ledger`).
+    /// State folder of the group-report ledger (`--state`; see [`crate::group::ledger::resolve_dir`]).
     pub state_dir: PathBuf,
 }
 
@@ -410,7 +410,18 @@ pub fn resolve_period(
             "the period starts {from}, after the as-of date {as_of}"
         ));
     }
-    Ok(Period { from, to })
+    // A period still under way (`--period` of this month, `--to` after the as-of date) is
+    // reported up to the as-of date: the days after it have not happened, and counted as days
+    // without weigh-ins they made a report say "nothing recorded for 27 days" on the 3rd.
+    if to > as_of {
+        tracing::warn!(
+            "the period {from} to {to} ends after the as-of date {as_of}: it is reported up to {as_of}"
+        );
+    }
+    Ok(Period {
+        from,
+        to: to.min(as_of),
+    })
 }
 
 fn month_period(s: &str) -> Option<Period> {

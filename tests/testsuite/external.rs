@@ -1064,3 +1064,28 @@ fn binary_interrupted_by_sigterm_stops_the_running_modules() {
         assert!(!c.cwd.exists(), "{c:?}");
     }
 }
+
+/// The modules' fingerprint is written into manifest.json and shard.json: an external module
+/// named by an absolute path (here the example module under the repository's absolute path, as
+/// an administrator's `/home/NAME/…` would be) appears by its file name alone, and so does an
+/// absolute path in an argument; a path relative to the program folder is shown as written.
+#[test]
+fn the_fingerprint_in_the_outputs_names_no_absolute_path() {
+    let abs = repo_root().join("plugins/example-external/step_summary.py");
+    let abs = abs.to_string_lossy();
+    let p = program(&format!(
+        "  - id: steps\n    command: [{abs}, --notes=/home/ana/notes.txt]\n"
+    ));
+    let fp = build(&p).0.settings_fingerprint();
+    assert_eq!(
+        fp.lines().next().unwrap(),
+        "steps 0.1.0 [\"…/step_summary.py\",\"--notes=…/notes.txt\"] {\"step_goal\":7000}",
+        "{fp}"
+    );
+    assert!(!fp.contains(&*repo_root().to_string_lossy()), "{fp}");
+    assert!(!fp.contains("/home/ana"), "{fp}");
+    // Relative commands (to the program folder) and bare names are shown as written.
+    let p = program(&example_entry(""));
+    let fp = build(&p).0.settings_fingerprint();
+    assert!(fp.contains(&format!("[\"{EXAMPLE}\"]")), "{fp}");
+}

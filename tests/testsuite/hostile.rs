@@ -936,3 +936,53 @@ fn control_characters_from_input_never_reach_a_csv_output_raw() {
         }
     }
 }
+
+/// `templates dump DIR` writes inside DIR only: a link already in DIR where a template would go
+/// (even a link to nothing, whose target would be created) is left as it is and reported as
+/// skipped, and a `partials` that is a link to another folder is an error (exit 6) with
+/// nothing written through it.
+#[cfg(unix)]
+#[test]
+fn templates_dump_never_writes_through_a_link() {
+    let t = ProgramTest::fixture("report-small");
+    let base = t.dir.parent().unwrap();
+    let elsewhere = base.join("elsewhere");
+    std::fs::create_dir(&elsewhere).unwrap();
+    let dump = base.join("dump");
+    std::fs::create_dir(&dump).unwrap();
+    std::os::unix::fs::symlink(elsewhere.join("planted.txt"), dump.join("group.html.hbs")).unwrap();
+    let o = run_bin(
+        &t,
+        &["templates", "dump", &dump.to_string_lossy()],
+        &[],
+        None,
+    );
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr.contains("group.html.hbs (exists, or is a link)"),
+        "{o:?}"
+    );
+    assert!(dump.join("participant.html.hbs").is_file());
+    assert!(dump.join("partials/style.hbs").is_file());
+    assert!(
+        !elsewhere.join("planted.txt").exists(),
+        "written through a dangling link"
+    );
+
+    let dump = base.join("dump2");
+    std::fs::create_dir(&dump).unwrap();
+    std::os::unix::fs::symlink(&elsewhere, dump.join("partials")).unwrap();
+    let o = run_bin(
+        &t,
+        &["templates", "dump", &dump.to_string_lossy()],
+        &[],
+        None,
+    );
+    assert_eq!(o.code, cohortpress::exit_code::OUTPUT_FAILED, "{o:?}");
+    assert!(o.stderr.contains("partials: is a link"), "{o:?}");
+    assert_eq!(
+        std::fs::read_dir(&elsewhere).unwrap().count(),
+        0,
+        "written into the link's target"
+    );
+}

@@ -67,3 +67,221 @@ fn group_ledger_inside_participants_is_refused_with_its_line() {
     assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
     assert!(!t.dir.join("participants/x").exists());
 }
+
+/// A ledger folder named through a symbolic link is judged where it really is: a link to a
+/// participant's folder (the ledger's key and file would be written among the inputs) or into
+/// the output folder (replaced by every run, so the audit across releases would start from
+/// nothing each month) is refused like the folder named directly, on the command line (exit 2)
+/// and in program.yaml (exit 3, by `check` too), and nothing is written.
+#[cfg(unix)]
+#[test]
+fn group_ledger_reached_through_a_link_is_judged_where_it_really_is() {
+    let t = ProgramTest::fixture("report-small");
+    let outside = t.dir.parent().unwrap();
+    let into_participant = outside.join("state-link");
+    std::os::unix::fs::symlink(t.dir.join("participants/SG-003"), &into_participant).unwrap();
+    let before = tree_hashes(&t.dir);
+    let state = into_participant.to_string_lossy().into_owned();
+    let args = ["run", "{dir}", "--as-of", AS_OF, "--formats", "html"];
+    let o = t.run(&[&args[..], &["--state", &state]].concat());
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(o.stderr.contains("participants/"), "{}", o.stderr);
+    assert_eq!(
+        tree_hashes(&t.dir),
+        before,
+        "nothing written among the inputs"
+    );
+
+    // Into the output folder through a link (a complete output exists there first).
+    let out = outside.join("out");
+    let out_s = out.to_string_lossy().into_owned();
+    let o = t.run(&[&args[..], &["--out", &out_s]].concat());
+    assert_eq!(o.code, 0, "{o:?}");
+    let into_out = outside.join("out-link");
+    std::os::unix::fs::symlink(&out, &into_out).unwrap();
+    let state = into_out.join("ledger").to_string_lossy().into_owned();
+    let o = t.run(&[&args[..], &["--out", &out_s, "--state", &state]].concat());
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(
+        o.stderr.contains("inside the output folder"),
+        "{}",
+        o.stderr
+    );
+    assert!(!out.join("ledger").exists());
+
+    // The same link in program.yaml: the program is invalid, for `check` as for `run`.
+    set_state_dir(&t, &into_participant.to_string_lossy());
+    let before = tree_hashes(&t.dir);
+    for cmd in ["check", "run"] {
+        let o = t.run(&[cmd, "{dir}", "--as-of", AS_OF]);
+        assert_eq!(
+            o.code,
+            cohortpress::exit_code::PROGRAM_INVALID,
+            "{cmd}: {o:?}"
+        );
+        assert!(
+            o.stderr.contains("report.state_dir") || o.stdout.contains("report.state_dir"),
+            "{o:?}"
+        );
+    }
+    assert_eq!(tree_hashes(&t.dir), before);
+}
+
+/// A run into a folder of its own (`--out`: a preview, a re-issue, a folder per month) is
+/// audited against the program's ledger when the program's own output has one, instead of a
+/// new, empty ledger beside the new folder. Real figures of the sample program: its September
+/// report printed 30 people at 3 % loss; the same month cut two days short (to 28 September)
+/// would print 31, and the difference is one person's milestone. Against the program's ledger
+/// that count is hidden (a range); a run with no program ledger to share warns that its ledger
+/// is new.
+#[test]
+fn a_run_into_another_folder_is_audited_against_the_programs_ledger() {
+    let t = ProgramTest::sample();
+    let as_of = ["--as-of", "2026-10-05", "--formats", "html"];
+    let o = t.run(&[&["run", "{dir}"][..], &as_of].concat());
+    assert_eq!(o.code, 4, "{o:?}"); // the sample's planted errors
+    let group = |dir: &std::path::Path| -> serde_json::Value {
+        serde_json::from_slice(&std::fs::read(dir.join("metrics/group.json")).unwrap()).unwrap()
+    };
+    let reached_3 = |g: &serde_json::Value| g["program"]["stats"]["milestones"][0].clone();
+    let first = reached_3(&group(&t.dir.join("reports")));
+    assert_eq!(first["loss_at_least_percent"], 3.0);
+    assert_eq!(first["reached"]["value"], 30, "{first}");
+
+    let other = t.dir.parent().unwrap().join("short-month");
+    let other_s = other.to_string_lossy().into_owned();
+    let cut = [
+        "--from",
+        "2026-09-01",
+        "--to",
+        "2026-09-28",
+        "--out",
+        &other_s,
+    ];
+    let o = t.run(&[&["run", "{dir}"][..], &as_of, &cut].concat());
+    assert_eq!(o.code, 4, "{o:?}");
+    let second = reached_3(&group(&other));
+    assert_eq!(second["reached"]["suppressed"], true, "{second}");
+    assert!(second["reached"].get("value").is_none(), "{second}");
+    assert!(!t.dir.parent().unwrap().join("short-month.ledger").exists());
+    let ledger: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(t.dir.join("reports.ledger/ledger.json")).unwrap())
+            .unwrap();
+    assert_eq!(ledger["releases"].as_array().unwrap().len(), 2);
+    assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
+
+    // No ledger of the program's own to share: the run says its audit starts from nothing.
+    let fresh = ProgramTest::sample();
+    let out = fresh.dir.parent().unwrap().join("elsewhere");
+    let out_s = out.to_string_lossy().into_owned();
+    let o = fresh.run(&[&["run", "{dir}"][..], &as_of, &["--out", &out_s]].concat());
+    assert_eq!(o.code, 4, "{o:?}");
+    assert!(o.stderr.contains("a new ledger"), "{}", o.stderr);
+    assert!(
+        fresh
+            .dir
+            .parent()
+            .unwrap()
+            .join("elsewhere.ledger/ledger.json")
+            .is_file()
+    );
+}
+
+/// Runs into different output folders may share one ledger (the program's): a run waits for
+/// another that is using it (an OS lock on `ledger.lock`, held from opening the ledger to
+/// recording the release), so neither loses the other's record. Here the test holds the lock:
+/// the run says it is waiting, and once the lock is released it finishes and records its release
+/// next to the first one.
+#[test]
+fn a_run_waits_for_another_using_the_same_ledger() {
+    use std::io::BufRead;
+    let t = ProgramTest::fixture("report-small");
+    let o = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let lock = std::fs::File::options()
+        .write(true)
+        .open(t.dir.join("reports.ledger/ledger.lock"))
+        .expect("the ledger's lock file");
+    lock.lock().unwrap();
+    let other = t.dir.parent().unwrap().join("august");
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+        .args([
+            "run",
+            &t.dir.to_string_lossy(),
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+        ])
+        .args(["--period", "2026-08", "--out", &other.to_string_lossy()])
+        .current_dir(&t.dir)
+        .env_clear()
+        .env("PATH", std::env::var("PATH").unwrap_or_default())
+        .env("HOME", t.dir.parent().unwrap())
+        .stdin(std::process::Stdio::null())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut stderr = std::io::BufReader::new(child.stderr.take().unwrap());
+    let mut seen = String::new();
+    loop {
+        let mut line = String::new();
+        if stderr.read_line(&mut line).unwrap() == 0 {
+            panic!("the run ended without waiting for the ledger: {seen}");
+        }
+        seen.push_str(&line);
+        if line.contains("waiting for another run that is using the group-report ledger") {
+            break;
+        }
+    }
+    assert!(!other.exists(), "nothing is in place while the run waits");
+    drop(lock);
+    std::io::copy(&mut stderr, &mut std::io::sink()).unwrap();
+    assert_eq!(child.wait().unwrap().code(), Some(0));
+    assert!(other.join("group/program.html").is_file());
+    let ledger: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(t.dir.join("reports.ledger/ledger.json")).unwrap())
+            .unwrap();
+    assert_eq!(ledger["releases"].as_array().unwrap().len(), 2);
+}
+
+/// The ledger is saved through a temporary file beside it; a link planted under that name
+/// (`ledger.tmp`, `secret.tmp`) is removed, never written through, so a file elsewhere keeps
+/// its content.
+#[cfg(unix)]
+#[test]
+fn the_ledger_never_writes_through_a_planted_link() {
+    let t = ProgramTest::fixture("report-small");
+    let base = t.dir.parent().unwrap();
+    let state = base.join("state");
+    std::fs::create_dir(&state).unwrap();
+    let victims = [base.join("victim-ledger.txt"), base.join("victim-key.txt")];
+    for v in &victims {
+        std::fs::write(v, "keep me\n").unwrap();
+    }
+    std::os::unix::fs::symlink(&victims[0], state.join("ledger.tmp")).unwrap();
+    std::os::unix::fs::symlink(&victims[1], state.join("secret.tmp")).unwrap();
+    let state_s = state.to_string_lossy().into_owned();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--state",
+        &state_s,
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+    for v in &victims {
+        assert_eq!(
+            std::fs::read_to_string(v).unwrap(),
+            "keep me\n",
+            "{}",
+            v.display()
+        );
+    }
+    assert!(state.join("ledger.json").is_file());
+    assert_eq!(std::fs::read(state.join("secret.key")).unwrap().len(), 32);
+}

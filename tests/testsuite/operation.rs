@@ -523,3 +523,43 @@ fn the_slurm_example_runs_shards_and_merges_to_a_single_runs_output() {
     assert_eq!(run(&t, &single, &["--period", "2026-09"]).code, 0);
     assert_same_tree(&single, &runs.join("2026-09/reports").to_string_lossy());
 }
+
+/// A period still under way (`--period` of the as-of date's month) is reported up to the as-of
+/// date: the days after it have not happened yet. Counted as days without records, they made a
+/// report on the 3rd say that nothing had been recorded for 27 days, and weekly rates were taken
+/// over weeks still to come.
+#[test]
+fn a_period_still_under_way_is_reported_up_to_the_as_of_date() {
+    let t = demo(3);
+    let o = out(&t, "r");
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-09-10",
+        "--period",
+        "2026-09",
+        "--out",
+        &o,
+        "--formats",
+        "html",
+    ]);
+    // Exit 1: the demo's rows after 10 September are in the future of the as-of date (dropped
+    // with a warning each).
+    assert_eq!(r.code, 1, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("it is reported up to 2026-09-10"),
+        "{}",
+        r.stderr
+    );
+    let manifest: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(Path::new(&o).join("manifest.json")).unwrap())
+            .unwrap();
+    assert_eq!(manifest["period_from"], "2026-09-01");
+    assert_eq!(manifest["period_to"], "2026-09-10");
+    let html = std::fs::read_to_string(Path::new(&o).join("participants/SG-001.html")).unwrap();
+    assert!(
+        html.contains("1 Sep 2026 – 10 Sep 2026"),
+        "the report names the days it covers"
+    );
+}

@@ -662,6 +662,81 @@ fn chart_helper_refuses_anything_but_a_drawn_chart() {
     );
 }
 
+/// A template of the program's own folder prints input text only escaped and makes a
+/// self-contained page: raw output (which would print a participant's name as HTML), code,
+/// event handlers, redirects and any address outside the page (a tracking image carrying the
+/// participant's id, a `file://` path of the machine, a style sheet from a server) are refused
+/// when the templates are loaded, naming the file, line and column. The built-in templates,
+/// dumped as overrides, pass.
+#[test]
+fn an_override_with_raw_output_code_or_outside_addresses_is_refused_at_its_line() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("participant.html.hbs");
+    for (line2, column, says) in [
+        ("<h1>{{{participant.display_name}}}</h1>", 5, "raw output"),
+        ("<h1>{{~{participant.display_name}~}}</h1>", 5, "raw output"),
+        ("<h1>{{& participant.display_name}}</h1>", 5, "raw output"),
+        ("<p>Ł</p><SCRIPT>1</SCRIPT>", 9, "`<script>`"),
+        ("<iframe></iframe>", 1, "`<iframe>`"),
+        (
+            "<img alt=\"\" src=\"https://t.example/p.gif?id={{participant.id}}\">",
+            18,
+            "`src`",
+        ),
+        ("<a href=\"file:///home/ana/x.html\">x</a>", 10, "`href`"),
+        ("<a href={{participant.name}}>x</a>", 9, "`href`"),
+        ("<body onload=\"x()\">", 7, "`onload`"),
+        (
+            "<meta http-equiv=\"refresh\" content=\"0;url=#x\">",
+            7,
+            "`http-equiv`",
+        ),
+        (
+            "<div style=\"background: URL('https://x/a.png')\">x</div>",
+            25,
+            "`url(…)`",
+        ),
+        (
+            "<style>@import \"https://x/a.css\";</style>",
+            8,
+            "`@import`",
+        ),
+    ] {
+        std::fs::write(
+            &file,
+            format!("<!-- <script> in a comment is text -->\n{line2}\n"),
+        )
+        .unwrap();
+        let err = match TemplateSet::with_overrides(Some(dir.path())) {
+            Ok(_) => panic!("accepted: {line2}"),
+            Err(e) => e.to_string(),
+        };
+        assert!(
+            err.contains(&format!("participant.html.hbs:2:{column}:")),
+            "{line2}: {err}"
+        );
+        assert!(err.contains(says), "{line2}: {err}");
+    }
+    // Links within the page, escaped values and fragment references stay allowed.
+    std::fs::write(
+        &file,
+        "<a href=\"#site-{{participant.id}}\" class=\"x\">{{participant.display_name}}</a>\
+         <div style=\"clip-path: url(#c)\">ü</div>",
+    )
+    .unwrap();
+    assert!(TemplateSet::with_overrides(Some(dir.path())).is_ok());
+    // Every built-in template, dumped into a program's folder, is accepted as an override.
+    let dump = tempfile::tempdir().unwrap();
+    for (name, text) in BUILTIN {
+        let path = dump.path().join(name);
+        std::fs::create_dir_all(path.parent().unwrap()).unwrap();
+        std::fs::write(path, text).unwrap();
+    }
+    if let Err(e) = TemplateSet::with_overrides(Some(dump.path())) {
+        panic!("a built-in template is refused: {e}");
+    }
+}
+
 #[test]
 fn a_misspelt_field_in_an_override_fails_the_run_naming_template_and_line() {
     let prog = ProgramTest::fixture("report-small");

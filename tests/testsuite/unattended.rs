@@ -611,3 +611,42 @@ fn check_and_run_agree_on_a_report_out_that_may_not_be_written() {
         );
     }
 }
+
+/// A group report of hand-picked participants, set against the complete one, gives the figures
+/// of the people left out (everyone but one: that one's change, milestone, attendance…), and
+/// an `--only` output has a ledger of its own, so the audit across releases never sees the two
+/// together. An `--only` run (and the merge of its shards) writes no group outputs and records
+/// nothing in a ledger; its participant reports and tidy metrics are written as before.
+#[test]
+fn an_only_run_writes_no_group_report_to_difference_against_the_complete_one() {
+    let t = small();
+    let out = beside(&t, "reports");
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(out.join("group/program.html").is_file());
+    assert!(out.join("metrics/group.json").is_file());
+
+    let part = beside(&t, "all-but-b");
+    let o = run_to(&t, &part, &["--only", "clean-a"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(part.join("participants/clean-a.html").is_file());
+    assert!(part.join("metrics/participants.csv").is_file());
+    assert!(
+        !part.join("group").exists(),
+        "an --only run wrote a group report"
+    );
+    assert!(!part.join("metrics/group.json").exists());
+    assert!(
+        !beside(&t, "all-but-b.ledger").exists(),
+        "a ledger of its own"
+    );
+    let manifest: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(part.join("manifest.json")).unwrap()).unwrap();
+    let outputs = manifest["outputs"].as_array().unwrap();
+    assert!(
+        !outputs
+            .iter()
+            .any(|f| f["path"].as_str().unwrap().contains("group")),
+        "{outputs:?}"
+    );
+}
