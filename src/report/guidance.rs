@@ -24,7 +24,8 @@
 //!
 //! An option is offered only when it is safe at the end of its interval that would do harm:
 //! the resulting intake is checked against the floor at the *lower* bound of the intake implied
-//! by the weight trend, and the resulting rate of loss against the fastest safe rate at the
+//! by the weight trend, and also against the person's mean logged intake when that is lower (a
+//! participant measures "less than now" against their own food log), and the resulting rate of loss against the fastest safe rate at the
 //! *lower* (fastest-loss) bound of the trend slope. Amounts are rounded to 50 kcal and 5
 //! minutes, and nothing smaller than `min_intake_change_kcal` or `min_walk_minutes` is offered.
 //! A regain is met with the intake change that holds the current weight by the model (the
@@ -301,7 +302,8 @@ pub struct OptionView {
     /// More walking a day, minutes (0 when the option is intake only).
     #[serde(skip)]
     pub walk_minutes: f64,
-    /// Resulting intake at the lower bound of the implied intake, kcal/d.
+    /// Resulting intake at the careful end: the lower bound of the implied intake, or the
+    /// logged intake when that is lower, kcal/d.
     #[serde(skip)]
     pub intake_at_lower_bound: Option<f64>,
     /// Resulting loss rate at the fastest-loss bound of the slope, kg/week.
@@ -391,6 +393,9 @@ struct Facts {
     weight_kg: Option<f64>,
     slope: Option<Est>,
     implied: Option<Est>,
+    /// Mean logged intake over the period, kcal/d (the energy module's, when enough days
+    /// were logged).
+    logged: Option<f64>,
     balance: Option<Est>,
     tdee: Option<f64>,
     intake_need: Option<f64>,
@@ -427,6 +432,9 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
                 }
                 e
             }),
+        logged: energy
+            .and_then(|e| e.logged_intake_kcal_per_day.value)
+            .filter(|x| x.is_finite()),
         balance: energy.and_then(|e| est(e.energy_balance_kcal_per_day)),
         tdee: energy.and_then(|e| e.tdee_kcal_per_day.value),
         intake_need: option_change(options, OptionKind::Intake).map(|x| -x),
@@ -444,6 +452,19 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .any(|f| f == GLUCOSE_LOWERING_FLAG),
     };
     compose(phase, &state, &t, &facts)
+}
+
+/// The careful end of the person's intake before any change: the lower bound of the implied
+/// intake, or the mean logged intake when that is lower. A participant measures "less than
+/// now" against their own food log, so a cut that would take the log below the floor is
+/// refused even when the weight trend implies a higher intake.
+fn careful_intake(lower: f64, logged: Option<f64>) -> f64 {
+    logged.map_or(lower, |l| l.min(lower))
+}
+
+/// Whether the logged intake, not the implied intake's lower bound, sets the careful end.
+fn log_binds(lower: f64, logged: Option<f64>) -> bool {
+    logged.is_some_and(|l| l < lower)
 }
 
 fn pace(units: UnitSystem) -> &'static str {
@@ -582,7 +603,9 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         .balance
         .map(|b| fmt::round_to(b.value, KCAL_STEP))
         .unwrap_or(0.0);
-    let lower_intake = f.implied.map(|i| i.lower.unwrap_or(i.value));
+    let lower_intake = f
+        .implied
+        .map(|i| careful_intake(i.lower.unwrap_or(i.value), f.logged));
     if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
         g.options_intro =
             "By the energy-balance model, either of these would about stop the rise:".into();
@@ -600,17 +623,30 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             g.options_intro = "By the energy-balance model, this would about stop the rise:".into();
         }
         g.options_note = format!(
-            "{} to hold your weight where it is, not to bring it down. Even at the careful end of the estimate, eating this much less keeps your intake at or above {} a day.",
+            "{} to hold your weight where it is, not to bring it down. Even at the careful end of the estimate{}, eating this much less keeps your intake at or above {} a day.",
             if g.options.len() == 1 {
                 "This amount aims"
             } else {
                 "These amounts aim"
             },
+            if f.logged.is_some() {
+                " and going by your food log"
+            } else {
+                ""
+            },
             fmt::kcal(floor)
         );
     } else if cut >= t.min_intake_change_kcal {
         g.paragraphs.push(format!(
-            "Eating less is not suggested here, because at the careful end of the estimate it could take your intake below {} a day; more activity, or a talk with the program staff, is the safer way to steady your weight.",
+            "Eating less is not suggested here, because {} it could take your intake below {} a day; more activity, or a talk with the program staff, is the safer way to steady your weight.",
+            if f
+                .implied
+                .is_some_and(|i| log_binds(i.lower.unwrap_or(i.value), f.logged))
+            {
+                "going by your food log"
+            } else {
+                "at the careful end of the estimate"
+            },
             fmt::kcal(floor)
         ));
     } else {
@@ -762,16 +798,29 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         ));
         return g;
     }
-    let lower = imp.lower.unwrap_or(imp.value);
+    let implied_lower = imp.lower.unwrap_or(imp.value);
+    let lower = careful_intake(implied_lower, f.logged);
     let room = lower - floor; // how much less is possible at the harmful bound
     let mut dropped_intake = false;
 
     // Eat less only.
     let cut = fmt::round_to(need, KCAL_STEP);
     if cut >= t.min_intake_change_kcal && lower - cut >= floor {
+        // Both frames when the food log and the weight trend disagree, so the amount "in all"
+        // never reads as more than the person logs.
+        let by_log = f
+            .logged
+            .filter(|l| (imp.value - l).abs() >= KCAL_STEP)
+            .map(|l| {
+                format!(
+                    ", or about {} going by your food log",
+                    fmt::int(fmt::round_to(l - cut, KCAL_STEP))
+                )
+            })
+            .unwrap_or_default();
         g.options.push(OptionView {
             text: format!(
-                "Eat about {} a day less than now (about {} a day in all, going by your weight trend).",
+                "Eat about {} a day less than now (about {} a day in all going by your weight trend{by_log}).",
                 fmt::kcal(cut),
                 fmt::kcal(fmt::round_to(imp.value - cut, KCAL_STEP))
             ),
@@ -826,7 +875,7 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         }
     );
     let mut note = format!(
-        "{} from the same energy-balance model as the figures above. {} your intake at or above {} a day and your loss under {}, even at the careful end of the estimate.",
+        "{} from the same energy-balance model as the figures above. {} your intake at or above {} a day and your loss under {}, even at the careful end of the estimate{}.",
         if g.options.len() == 1 {
             "This comes"
         } else {
@@ -838,11 +887,21 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
             "Each one keeps"
         },
         fmt::kcal(floor),
-        rate_words(max, f.units)
+        rate_words(max, f.units),
+        if f.logged.is_some() {
+            " and going by your food log"
+        } else {
+            ""
+        }
     );
     if dropped_intake {
         note.push_str(&format!(
-            " Eating less alone is not suggested, because at the careful end of the estimate it would take your intake below {} a day.",
+            " Eating less alone is not suggested, because {} it would take your intake below {} a day.",
+            if log_binds(implied_lower, f.logged) {
+                "going by your food log"
+            } else {
+                "at the careful end of the estimate"
+            },
             fmt::kcal(floor)
         ));
     }
@@ -1004,6 +1063,7 @@ mod tests {
                 lower: Some(-150.0),
                 upper: Some(150.0),
             }),
+            logged: None,
             tdee: Some(2010.0),
             intake_need: Some(560.0),
             walk_need: Some(95.0),
@@ -1051,6 +1111,62 @@ mod tests {
         assert!(
             g.options_note
                 .contains("Eating less alone is not suggested")
+        );
+    }
+
+    /// Someone who logs far less than the weight trend implies (implied 2,640, 95 % interval
+    /// 2,160–3,130; logged 1,800) is never told to eat an amount less that would take their
+    /// food log below the floor: 750 kcal less reads as about 1,050 kcal a day by the log.
+    #[test]
+    fn intake_cuts_are_checked_against_the_food_log_too() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.implied = Some(Est {
+            value: 2640.0,
+            lower: Some(2160.0),
+            upper: Some(3130.0),
+        });
+        f.intake_need = Some(750.0);
+        f.walk_need = Some(120.0);
+        f.logged = Some(1800.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        // Before: "Eat about 750 kcal a day less" (2,160 − 750 = 1,410 ≥ 1,200).
+        assert!(g.options.iter().all(|o| o.intake_cut_kcal < 750.0), "{g:?}");
+        for o in &g.options {
+            assert!(1800.0 - o.intake_cut_kcal >= 1200.0, "{o:?}");
+            assert!(o.intake_at_lower_bound.unwrap() >= 1200.0, "{o:?}");
+        }
+        // The mix: half of 750 = 375 → 350 kcal (the log leaves 600 of room), the rest walking:
+        // (750 − 350)/750 × 120 = 64 min > 60, so nothing is left to offer.
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        // A log that leaves room: the option gives both frames.
+        f.logged = Some(2300.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert_eq!(g.options[0].intake_cut_kcal, 750.0);
+        assert_eq!(g.options[0].intake_at_lower_bound, Some(1410.0));
+        assert!(
+            g.options[0]
+                .text
+                .contains("about 1,900 kcal a day in all going by your weight trend, or about 1,550 going by your food log"),
+            "{}",
+            g.options[0].text
+        );
+        assert!(g.options_note.contains("and going by your food log"));
+        // A regain met with "eat less": the cut is checked against the log too.
+        f.logged = Some(1450.0);
+        f.balance = Some(Est {
+            value: 300.0,
+            lower: Some(150.0),
+            upper: Some(450.0),
+        });
+        let g = compose(Phase::Regain, &st(Regaining), &t, &f);
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        assert!(
+            g.paragraphs
+                .iter()
+                .any(|p| p.contains("going by your food log it could take your intake below 1,200")),
+            "{:?}",
+            g.paragraphs
         );
     }
 
