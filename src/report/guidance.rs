@@ -291,6 +291,22 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
     }
 }
 
+/// Whether the current BMI rules out loss as a goal: below `loss_bmi_at_least` (which is above
+/// `underweight_bmi_below`). Such a person's report shows no target weight below their own and
+/// no loss milestone still to reach.
+pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
+    s.bmi
+        .is_some_and(|b| b < t.loss_bmi_at_least || b < t.underweight_bmi_below)
+}
+
+/// Whether loss is still the goal: a loss target not yet reached and a BMI that allows it.
+pub fn loss_is_goal(s: &State, t: &Thresholds) -> bool {
+    s.target_percent < 0.0
+        && s.change_percent.is_none_or(|c| c > s.target_percent)
+        && s.bmi.is_some_and(|b| b >= t.loss_bmi_at_least)
+        && !bmi_rules_out_loss(s, t)
+}
+
 /// One option offered, with the figures behind it (kept for the tests and the tidy view).
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct OptionView {
@@ -654,12 +670,7 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             "The rise is small next to the uncertainty of the estimate, so this report suggests no particular amount. Going back to the habits that worked for you earlier — regular weigh-ins, a food log, your usual activity — is a good first step.".into(),
         );
     }
-    let loss_goal = state.target_percent < 0.0
-        && state
-            .change_percent
-            .is_none_or(|c| c > state.target_percent)
-        && state.bmi.is_some_and(|b| b >= t.loss_bmi_at_least);
-    if loss_goal {
+    if loss_is_goal(state, t) {
         g.closing.push(
             "Once your weight is steady again, next month's report will look at what it would take to get back to a steady loss.".into(),
         );
@@ -1040,6 +1051,34 @@ mod tests {
         for (name, state, want) in cases {
             assert_eq!(decide(&state, &t), want, "{name}");
         }
+    }
+
+    /// Who sees a loss goal at all (a target weight below their own, loss milestones still to
+    /// reach): not a person of BMI 22 who never lost (the report showed "Target 57.4 kg" and
+    /// "5 % loss · not yet" next to "this report does not suggest losing more"), nor one of
+    /// BMI 17. WHO 2000 (Technical Report Series 894) BMI classes: 18.5 and 25.
+    #[test]
+    fn loss_is_a_goal_only_at_a_bmi_that_allows_it() {
+        let t = Thresholds::default();
+        let mut s = st(Stable);
+        assert!(loss_is_goal(&s, &t) && !bmi_rules_out_loss(&s, &t));
+        for bmi in [22.1, 17.0, 24.9] {
+            s.bmi = Some(bmi);
+            assert!(bmi_rules_out_loss(&s, &t), "{bmi}");
+            assert!(!loss_is_goal(&s, &t), "{bmi}");
+        }
+        s.bmi = Some(25.0);
+        assert!(loss_is_goal(&s, &t));
+        // Past the target: no goal of loss, but the BMI does not rule it out.
+        s.change_percent = Some(-6.0);
+        assert!(!loss_is_goal(&s, &t) && !bmi_rules_out_loss(&s, &t));
+        // A hold target is no loss goal.
+        s.change_percent = Some(-1.0);
+        s.target_percent = 0.0;
+        assert!(!loss_is_goal(&s, &t));
+        // Without a BMI nothing is ruled out.
+        s.bmi = None;
+        assert!(!bmi_rules_out_loss(&s, &t));
     }
 
     fn facts() -> Facts {

@@ -163,11 +163,20 @@ pub fn build(
     let v = results.views();
     let left = p.withdrew.filter(|w| *w <= plan.period.to);
 
+    // Whether loss is a goal at all: below the loss BMI cut-off (normal weight, underweight)
+    // the report shows no target weight below the person's own and no loss milestone "not yet"
+    // reached, which would read as advice to lose.
+    let thresholds = guidance::Thresholds::from_plan(plan);
+    let state = guidance::state_of(plan, data, results);
+    let no_loss = guidance::bmi_rules_out_loss(&state, &thresholds);
+    let loss_goal = guidance::loss_is_goal(&state, &thresholds);
+
     // Weight chart, with the target weight when there is a starting weight.
     let target_kg = v
         .outcomes
         .as_ref()
         .and_then(|o| o.baseline_weight_kg)
+        .filter(|_| !(no_loss && p.targets.weight_change_percent < 0.0))
         .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
     let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan);
 
@@ -208,7 +217,7 @@ pub fn build(
         },
         headline: headline(v.trend.as_ref(), v.outcomes.as_ref(), units, left),
         summary: summary(&v, units),
-        milestones: milestones(v.outcomes.as_ref()),
+        milestones: milestones(v.outcomes.as_ref(), loss_goal),
         weight_chart: weight_view,
         energy: energy_view,
         adherence: adherence_view,
@@ -223,7 +232,7 @@ pub fn build(
             .map(|f| format!("{}: {}", f.module, f.message))
             .collect(),
         extra: extra_modules(results),
-        cautions: cautions::participant(&guidance::Thresholds::from_plan(plan)),
+        cautions: cautions::participant(&thresholds),
     };
     ParticipantReport {
         ctx,
@@ -294,12 +303,15 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
     summary
 }
 
-/// Milestones (3, 5, 7, 10 % loss) and when they were reached.
-fn milestones(outcomes: Option<&OutcomesView>) -> Vec<MilestoneView> {
+/// Milestones (3, 5, 7, 10 % loss) and when they were reached; when loss is not the goal
+/// (target reached, a BMI below the loss cut-off, a target that is not a loss), only those
+/// already reached.
+fn milestones(outcomes: Option<&OutcomesView>, loss_goal: bool) -> Vec<MilestoneView> {
     outcomes
         .map(|o| {
             o.milestones
                 .iter()
+                .filter(|m| loss_goal || m.reached)
                 .map(|m| MilestoneView {
                     label: format!("{} % loss", num_text(Some(m.threshold_percent))),
                     reached: m.reached,
