@@ -80,6 +80,7 @@ pub fn reason(code: &str) -> &'static str {
         "medication_review" => {
             "Takes a glucose-lowering medicine while losing fast or eating little: the dose may need review"
         }
+        "pregnancy" => "Pregnancy noted in the profile: the report makes no suggestions for change",
         _ => "Raised for review by a licensed clinician",
     }
 }

@@ -8,7 +8,7 @@
 //! | # | state | phase | the report offers |
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
-//! | 2 | a clinical flag that holds advice (fast loss, low or very low intake, low BMI, medication review), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
+//! | 2 | a clinical flag that holds advice (fast loss, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least`, or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
@@ -50,12 +50,13 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 5] = [
+pub const HOLDING_FLAGS: [&str; 6] = [
     "fast_loss",
     "very_low_intake",
     "low_intake",
     "low_bmi",
     "medication_review",
+    "pregnancy",
 ];
 
 /// The profile flag that notes a glucose-lowering medicine.
@@ -292,11 +293,12 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
 }
 
 /// Whether the current BMI rules out loss as a goal: below `loss_bmi_at_least` (which is above
-/// `underweight_bmi_below`). Such a person's report shows no target weight below their own and
+/// `underweight_bmi_below`), or a pregnancy noted in the profile. Such a person's report shows no target weight below their own and
 /// no loss milestone still to reach.
 pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
     s.bmi
         .is_some_and(|b| b < t.loss_bmi_at_least || b < t.underweight_bmi_below)
+        || s.clinical_flags.iter().any(|c| c == "pregnancy")
 }
 
 /// Whether loss is still the goal: a loss target not yet reached and a BMI that allows it.
@@ -988,6 +990,11 @@ mod tests {
                 Phase::Clinician,
             ),
             (
+                "pregnancy holds advice",
+                with(&|s| s.clinical_flags = vec!["pregnancy".into()], Plateau),
+                Phase::Clinician,
+            ),
+            (
                 "diabetes-range lab does not hold advice",
                 with(
                     &|s| s.clinical_flags = vec!["lab_diabetes_range".into()],
@@ -1076,9 +1083,13 @@ mod tests {
         s.change_percent = Some(-1.0);
         s.target_percent = 0.0;
         assert!(!loss_is_goal(&s, &t));
-        // Without a BMI nothing is ruled out.
+        // Without a BMI nothing is ruled out, except by a pregnancy.
         s.bmi = None;
         assert!(!bmi_rules_out_loss(&s, &t));
+        s.bmi = Some(31.0);
+        s.target_percent = -5.0;
+        s.clinical_flags = vec!["pregnancy".into()];
+        assert!(bmi_rules_out_loss(&s, &t) && !loss_is_goal(&s, &t));
     }
 
     fn facts() -> Facts {

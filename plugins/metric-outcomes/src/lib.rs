@@ -40,6 +40,9 @@
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
 //!   `fast_loss`, `low_intake` or `very_low_intake` was raised (risk of low blood sugar).
+//! * `pregnancy` (clinical): the profile carries `pregnant`. Loss targets, the intake floors
+//!   and the energy model are for adults who are not pregnant, so the report holds every
+//!   suggestion and points to a clinician.
 //! * `insufficient_data` (info): no weigh-in yet.
 //!
 //! # Cut points
@@ -86,6 +89,8 @@ pub const MIN_INTAKE_DAYS: usize = 4;
 
 /// Profile flag for people who take glucose-lowering medication.
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
+/// Profile flag for a pregnancy.
+pub const PREGNANCY_FLAG: &str = "pregnant";
 
 /// Round-off allowance at cut points (see the crate docs).
 const CUT_EPS: f64 = 1e-9;
@@ -581,6 +586,12 @@ impl MetricModule for OutcomesModule {
                     "latest lab value in the prediabetes range",
                 ),
                 OutputSpec::new(
+                    OutcomesFlag::Pregnancy.as_str(),
+                    "flag",
+                    "",
+                    "pregnancy noted in the profile (holds every suggestion)",
+                ),
+                OutputSpec::new(
                     OutcomesFlag::MedicationReview.as_str(),
                     "flag",
                     "",
@@ -623,6 +634,18 @@ impl MetricModule for OutcomesModule {
         push_lab_flags(&mut output, &labs, profile.sex);
         if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG) && (fast || low_intake) {
             push_medication_flag(&mut output, fast, low_intake);
+        }
+        if profile.flags.iter().any(|f| f == PREGNANCY_FLAG) {
+            // Weight-loss targets, the intake floors and the energy model are for adults who
+            // are not pregnant; weight gain is expected in pregnancy (IOM 2009, Weight Gain
+            // During Pregnancy — from memory), so the report holds every suggestion.
+            output.push_flag(
+                OutcomesFlag::Pregnancy.as_str(),
+                FlagSeverity::Clinical,
+                "The profile notes a pregnancy. Weight change and eating during pregnancy \
+                 should be guided by a licensed clinician or midwife; this report's loss \
+                 targets and estimates are for adults who are not pregnant.",
+            );
         }
         Ok(output)
     }

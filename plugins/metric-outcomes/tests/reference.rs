@@ -690,6 +690,20 @@ fn medication_review_with_glucose_lowering_medicine() {
     assert_eq!(codes(&run(&c(fast), &p)), vec!["fast_loss"]);
 }
 
+/// A pregnancy noted in the profile raises a clinical flag (which holds every suggestion in
+/// the participant's report), whatever the weight does.
+#[test]
+fn pregnancy_in_the_profile_is_a_clinical_flag() {
+    let mut p = steady_loser();
+    let c = |t| ctx(day(0), day(30), Some(t));
+    let steady = trend_output(30, 30, -0.875, |k| 100.0 - 0.125 * k as f64);
+    assert!(run(&c(steady.clone()), &p).flags.is_empty());
+    p.profile.flags = vec!["pregnant".into()];
+    let out = run(&c(steady), &p);
+    assert_eq!(codes(&out), vec!["pregnancy"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+}
+
 #[test]
 fn falls_back_to_weigh_ins_without_a_trend() {
     let mut p = participant(Sex::Male, 180.0);
