@@ -718,8 +718,19 @@ fn maintain(
     f: &Facts,
     floor: f64,
 ) -> GuidanceView {
-    let mut g = empty(Phase::Maintain(why), "Holding your new weight", floor);
     let change = state.change_percent.unwrap_or(0.0);
+    // "New" and "lower" weight only after a loss: someone enrolled at a healthy weight has
+    // none to hold.
+    let lost = change <= -1.0;
+    let mut g = empty(
+        Phase::Maintain(why),
+        if lost {
+            "Holding your new weight"
+        } else {
+            "Holding your weight"
+        },
+        floor,
+    );
     g.paragraphs.push(match why {
         MaintainWhy::TargetReached => format!(
             "You have reached your target of a {} % loss (you are at {} %). The aim from here is to hold your weight, not to lose more.",
@@ -727,8 +738,10 @@ fn maintain(
             fmt::fixed(change.abs(), 1)
         ),
         MaintainWhy::BmiBelowCutoff => format!(
-            "Your BMI is now below {}, in the range the WHO calls normal weight, so this report does not suggest losing more. The aim from here is to hold your weight.",
-            fmt::fixed(t.loss_bmi_at_least, 0)
+            "Your BMI is {}below {}, in the range the WHO calls normal weight, so this report does not suggest losing {}. The aim from here is to hold your weight.",
+            if lost { "now " } else { "" },
+            fmt::fixed(t.loss_bmi_at_least, 0),
+            if lost { "more" } else { "weight" }
         ),
         MaintainWhy::NoLossTarget => {
             "Your target is to hold your weight, so this report does not suggest losing any.".into()
@@ -754,8 +767,13 @@ fn maintain(
         ));
     }
     g.paragraphs.push(format!(
-        "Staying active — your program target is {} minutes a week — helps most people hold a lower weight.",
-        fmt::fixed(f.activity_target, 0)
+        "Staying active — your program target is {} minutes a week — helps most people hold {}.",
+        fmt::fixed(f.activity_target, 0),
+        if lost {
+            "a lower weight"
+        } else {
+            "their weight"
+        }
     ));
     g
 }
@@ -1289,6 +1307,20 @@ mod tests {
         assert!(all.contains("about 2,000 kcal a day holds"), "{all}");
         assert!(all.contains("about 200 kcal a day more"), "{all}");
         assert!(!all.contains("less"), "{all}");
+        assert_eq!(g.heading, "Holding your new weight");
+        // Enrolled at a healthy weight and never lost: no "new" or "lower" weight to hold.
+        s.change_percent = Some(-0.3);
+        s.status = Stable;
+        let g = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f);
+        let all = g.paragraphs.join(" ");
+        assert_eq!(g.heading, "Holding your weight");
+        assert!(all.contains("Your BMI is below 25"), "{all}");
+        assert!(all.contains("does not suggest losing weight"), "{all}");
+        assert!(all.contains("hold their weight"), "{all}");
+        assert!(
+            !all.contains("new weight") && !all.contains("lower weight"),
+            "{all}"
+        );
     }
 
     #[test]

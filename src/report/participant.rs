@@ -494,8 +494,11 @@ fn headline(
         );
     }
     match status {
+        // "Going down by" carries the sign already: "by about 1.32 kg/week", not "−1.32".
         Status::Losing => format!(
-            "Your weight trend is going down, by about {rate_s} over the last four weeks.{since}"
+            "Your weight trend is going down, by about {} {}/week over the last four weeks.{since}",
+            fmt::fixed(fmt::weight_value(rate.unwrap_or(0.0), units).abs(), 2),
+            fmt::weight_unit(units)
         ),
         Status::Plateau => {
             format!("Your weight has held steady over the last four weeks (a plateau).{since}")
@@ -954,6 +957,21 @@ mod activity_unread_tests {
             .unwrap()
             .value
             .clone()
+    }
+
+    /// "Going down, by about −1.32 kg/week" said the sign twice.
+    #[test]
+    fn a_falling_trend_is_told_without_a_double_sign() {
+        let mut t = TrendView::default();
+        t.status = Status::Losing;
+        t.slope_kg_per_week.value = Some(-1.32);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        assert_eq!(
+            h,
+            "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
+        );
+        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None);
+        assert!(h.contains("by about 2.91 lb/week"), "{h}");
     }
 
     #[test]
