@@ -84,8 +84,9 @@ const INTAKE_DRIFT_PER_DAY: f64 = 3.0;
 /// stop and regain; with all of it, 85 % (seed 20261202; 92.5 → 96.2 % over everyone;
 /// VALIDATION.md).
 const FADE_SHARE: f64 = 1.0;
-/// Smallest BMI a reported steady state may have: the linearised energy balance is not a model
-/// of starvation (program choice; BMI 16 is the WHO threshold of severe thinness).
+/// Smallest BMI a reported steady state or forecast may reach: the linearised energy balance
+/// is not a model of starvation (program choice; BMI 16 is the WHO threshold of severe
+/// thinness).
 const MIN_STEADY_STATE_BMI: f64 = 16.0;
 
 struct Settings {
@@ -967,12 +968,22 @@ fn forecast(
             });
         }
     }
+    let h_m = p.height_cm / 100.0;
+    // Like the steady state, a forecast that reaches a BMI below 16 (its path or the lower
+    // edge of its band) is not shown: the model is not one of starvation, and a line drawn
+    // into severe thinness is no forecast to give a participant.
+    let min_kg = MIN_STEADY_STATE_BMI * h_m * h_m;
+    if points
+        .iter()
+        .any(|pt| pt.value < min_kg || pt.lower.is_some_and(|l| l < min_kg))
+    {
+        points.clear();
+    }
     let end = points.last().map(|pt| Band {
         value: pt.value,
         lower: pt.lower,
         upper: pt.upper,
     });
-    let h_m = p.height_cm / 100.0;
     let ss = |x: f64| {
         p.model
             .steady_state_weight(x, cur.met_h_window)

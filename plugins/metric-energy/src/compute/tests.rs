@@ -804,3 +804,53 @@ fn a_loss_faster_than_zero_intake_gives_no_implied_intake() {
         None
     );
 }
+
+/// A woman of 165 cm at 46 kg (BMI 16.9) losing 0.4 kg a week: the forecast ran on to about
+/// 41 kg (BMI 15) with its band's lower edge lower still. Below BMI 16 (WHO severe thinness)
+/// no forecast is given, as no steady state is.
+#[test]
+fn no_forecast_reaches_below_bmi_16() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let series = |start: f64, per_week: f64| -> Vec<f64> {
+        (0..n).map(|i| start - per_week * i as f64 / 7.0).collect()
+    };
+    let run_with = |weights: &[f64]| {
+        let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
+        data.weights = (0..n)
+            .step_by(2)
+            .map(|i| WeighIn {
+                date: day_after(enrolled, i as u64),
+                time: None,
+                weight: Mass::from_kg(weights[i]),
+                source: None,
+            })
+            .collect();
+        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, weights, 0.3, 0.005, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    let bmi16 = 16.0 * 1.65 * 1.65;
+    let out = run_with(&series(53.0, 0.4));
+    assert!(out.scalar("implied_intake_kcal_per_day").is_some());
+    assert_eq!(out.scalar("forecast_weight_at_end_kg"), None);
+    assert_eq!(out.scalar("steady_state_weight_kg"), None);
+    let fc = out
+        .series
+        .iter()
+        .find(|s| s.name == "forecast_weight")
+        .unwrap();
+    assert!(fc.points.is_empty(), "{:?}", fc.points.first());
+    // The same loss from 90 kg is forecast, and stays above BMI 16.
+    let out = run_with(&series(90.0, 0.4));
+    let end = out.scalar_full("forecast_weight_at_end_kg").unwrap();
+    assert!(end.lower.unwrap() > bmi16, "{end:?}");
+    assert!(end.value.unwrap() < 90.0 - 0.4 * n as f64 / 7.0);
+}
