@@ -962,8 +962,10 @@ mod activity_unread_tests {
     /// "Going down, by about −1.32 kg/week" said the sign twice.
     #[test]
     fn a_falling_trend_is_told_without_a_double_sign() {
-        let mut t = TrendView::default();
-        t.status = Status::Losing;
+        let mut t = TrendView {
+            status: Status::Losing,
+            ..TrendView::default()
+        };
         t.slope_kg_per_week.value = Some(-1.32);
         let h = headline(Some(&t), None, UnitSystem::Metric, None);
         assert_eq!(
