@@ -282,7 +282,12 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
             ),
         ));
     }
-    if let Some(r) = trend.and_then(|t| t.slope_kg_per_week.value) {
+    // With too few recent weigh-ins the headline says the movement cannot be seen; a rate
+    // beside it (from a week of data, or weekends only) would say the opposite.
+    if let Some(r) = trend
+        .filter(|t| t.status != Status::InsufficientData)
+        .and_then(|t| t.slope_kg_per_week.value)
+    {
         summary.push(Kv::new(
             "Recent rate (last 4 weeks)",
             &fmt::rate_per_week(r, units),
@@ -974,6 +979,31 @@ mod activity_unread_tests {
         );
         let h = headline(Some(&t), None, UnitSystem::UsCustomary, None);
         assert!(h.contains("by about 2.91 lb/week"), "{h}");
+    }
+
+    /// "Too few recent weigh-ins to see how your weight moved" stood above "Recent rate (last
+    /// 4 weeks) +0.44 kg/week".
+    #[test]
+    fn no_recent_rate_beside_too_few_weigh_ins() {
+        let mut t = TrendView {
+            status: Status::InsufficientData,
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week.value = Some(0.44);
+        let views = |t: &TrendView| BuiltinViews {
+            trend: Some(t.clone()),
+            energy: None,
+            adherence: None,
+            outcomes: None,
+        };
+        let has_rate = |v: &BuiltinViews| {
+            summary(v, UnitSystem::Metric)
+                .iter()
+                .any(|k| k.label.starts_with("Recent rate"))
+        };
+        assert!(!has_rate(&views(&t)));
+        t.status = Status::Regaining;
+        assert!(has_rate(&views(&t)));
     }
 
     #[test]
