@@ -80,6 +80,9 @@ pub fn reason(code: &str) -> &'static str {
         "medication_review" => {
             "Takes a glucose-lowering medicine while losing fast or eating little: the dose may need review"
         }
+        "fast_gain" => {
+            "Weight going up faster than about 1 kg (2 lb) a week for three weeks or more (fluid, or a change of scale?)"
+        }
         "pregnancy" => "Pregnancy noted in the profile: the report makes no suggestions for change",
         _ => "Raised for review by a licensed clinician",
     }

@@ -8,7 +8,7 @@
 //! | # | state | phase | the report offers |
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
-//! | 2 | a clinical flag that holds advice (fast loss, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
+//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least`, or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
@@ -50,8 +50,9 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 6] = [
+pub const HOLDING_FLAGS: [&str; 7] = [
     "fast_loss",
+    "fast_gain",
     "very_low_intake",
     "low_intake",
     "low_bmi",
@@ -1005,6 +1006,11 @@ mod tests {
                     &|s| s.clinical_flags = vec!["medication_review".into()],
                     Plateau,
                 ),
+                Phase::Clinician,
+            ),
+            (
+                "fast gain holds advice",
+                with(&|s| s.clinical_flags = vec!["fast_gain".into()], Regaining),
                 Phase::Clinician,
             ),
             (
