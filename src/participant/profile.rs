@@ -50,6 +50,30 @@ pub struct ProfileDef {
     pub flags: Vec<String>,
 }
 
+/// Profile flags that change a report: a glucose-lowering medicine (cautions, and a
+/// medication review with fast loss or low intake) and a pregnancy (no suggestions for change
+/// until a clinician has been involved; the energy model and the floors are for adults who are
+/// not pregnant).
+pub const KNOWN_FLAGS: [&str; 2] = ["glucose-lowering-medication", "pregnant"];
+
+/// A profile flag in its written form: case, spaces and underscores do not matter
+/// (`Glucose_lowering medication` is `glucose-lowering-medication`), and `pregnancy` is
+/// `pregnant`. A misspelt flag that changes nothing would silently drop a caution.
+pub fn normalise_flag(flag: &str) -> String {
+    let f = flag
+        .trim()
+        .to_lowercase()
+        .split(|c: char| c == '_' || c == '-' || c.is_whitespace())
+        .filter(|w| !w.is_empty())
+        .collect::<Vec<_>>()
+        .join("-");
+    if f == "pregnancy" {
+        "pregnant".into()
+    } else {
+        f
+    }
+}
+
 /// Plausible height, cm (common practice: outside it a value is a typing or unit error).
 pub const HEIGHT_CM_RANGE: (f64, f64) = (100.0, 250.0);
 /// Plausible baseline body fat, % (common practice: below essential fat or above what
@@ -250,6 +274,26 @@ pub fn parse_profile(
             diags.push(d);
         }
     }
+    let flags: Vec<String> = def.flags.iter().map(|f| normalise_flag(f)).collect();
+    for (written, f) in def.flags.iter().zip(&flags) {
+        if !KNOWN_FLAGS.contains(&f.as_str()) {
+            diags.push(at(
+                "flags",
+                ctx.warning(format!(
+                    "unknown profile flag `{written}`; it changes nothing in the reports"
+                ))
+                .expected(
+                    KNOWN_FLAGS
+                        .iter()
+                        .map(|k| format!("`{k}`"))
+                        .collect::<Vec<_>>()
+                        .join(" or "),
+                )
+                .found(format!("`{written}`"))
+                .hint("check the spelling: a flag the tool does not know cannot add its cautions"),
+            ));
+        }
+    }
     let has_error = diags[before..]
         .iter()
         .any(|d| d.severity == crate::diag::Severity::Error);
@@ -271,7 +315,7 @@ pub fn parse_profile(
             .targets
             .as_ref()
             .map_or_else(|| program_targets.clone(), |t| t.apply(program_targets)),
-        flags: def.flags,
+        flags,
     })
 }
 
@@ -332,6 +376,32 @@ flags: [glucose-lowering-medication]
         assert_eq!(p.targets.activity_minutes_per_week, 150.0);
         assert_eq!(p.flags, vec!["glucose-lowering-medication"]);
         assert_eq!(p.sex, Sex::Female);
+    }
+
+    /// A misspelt medication flag used to be kept as written and matched nothing, so the report
+    /// lost its medication caution and review without a word.
+    #[test]
+    fn profile_flags_are_read_whatever_the_spelling_and_unknown_ones_are_named() {
+        let (p, d) = parse(&GOOD.replace(
+            "flags: [glucose-lowering-medication]",
+            "flags: [Glucose_Lowering medication, Pregnancy]",
+        ));
+        assert_eq!(
+            p.unwrap().flags,
+            vec!["glucose-lowering-medication", "pregnant"]
+        );
+        assert!(d.is_empty(), "{d:?}");
+        let (p, d) = parse(&GOOD.replace(
+            "flags: [glucose-lowering-medication]",
+            "flags: [glucose-lowering-medicine]",
+        ));
+        assert_eq!(p.unwrap().flags, vec!["glucose-lowering-medicine"]);
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Warning);
+        assert!(
+            d[0].message
+                .contains("unknown profile flag `glucose-lowering-medicine`")
+        );
     }
 
     #[test]

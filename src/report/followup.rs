@@ -80,6 +80,10 @@ pub fn reason(code: &str) -> &'static str {
         "medication_review" => {
             "Takes a glucose-lowering medicine while losing fast or eating little: the dose may need review"
         }
+        "fast_gain" => {
+            "Weight going up faster than about 1 kg (2 lb) a week for three weeks or more (fluid, or a change of scale?)"
+        }
+        "pregnancy" => "Pregnancy noted in the profile: the report makes no suggestions for change",
         _ => "Raised for review by a licensed clinician",
     }
 }
@@ -125,13 +129,14 @@ fn iso_dates(text: &str) -> Vec<String> {
     let mut out = Vec::new();
     let mut i = 0;
     while i + 10 <= b.len() {
-        let s = &text[i..i + 10];
+        // `get`, not slicing: a window may cut a character of several bytes (`kg/m²`), and
+        // slicing there panicked, ending the whole run whenever a low-BMI flag was listed.
+        let s = text.get(i..i + 10);
         let boundary_before = i == 0 || !b[i - 1].is_ascii_digit();
         let boundary_after = b.get(i + 10).is_none_or(|c| !c.is_ascii_digit());
-        if boundary_before
+        if let Some(s) = s
+            && boundary_before
             && boundary_after
-            && text.is_char_boundary(i)
-            && text.is_char_boundary(i + 10)
             && NaiveDate::parse_from_str(s, "%Y-%m-%d").is_ok()
         {
             out.push(s.to_string());
@@ -459,5 +464,16 @@ mod tests {
             vec!["2026-08-01".to_string(), "2026-08-21".to_string()]
         );
         assert!(iso_dates("about 1150 kcal a day").is_empty());
+        // The low-BMI flag's own message: a 10-byte window ends inside "²".
+        assert!(
+            iso_dates(
+                "Current BMI is about 17.0 kg/m², below 18.5, the lower limit of the normal range (WHO)."
+            )
+            .is_empty()
+        );
+        assert_eq!(
+            iso_dates("BMI 17.0 kg/m² on 2026-07-31 (ü)"),
+            vec!["2026-07-31".to_string()]
+        );
     }
 }

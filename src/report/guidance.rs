@@ -8,7 +8,7 @@
 //! | # | state | phase | the report offers |
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
-//! | 2 | a clinical flag that holds advice (fast loss, low or very low intake, low BMI, medication review), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
+//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least`, or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
@@ -24,7 +24,8 @@
 //!
 //! An option is offered only when it is safe at the end of its interval that would do harm:
 //! the resulting intake is checked against the floor at the *lower* bound of the intake implied
-//! by the weight trend, and the resulting rate of loss against the fastest safe rate at the
+//! by the weight trend, and also against the person's mean logged intake when that is lower (a
+//! participant measures "less than now" against their own food log), and the resulting rate of loss against the fastest safe rate at the
 //! *lower* (fastest-loss) bound of the trend slope. Amounts are rounded to 50 kcal and 5
 //! minutes, and nothing smaller than `min_intake_change_kcal` or `min_walk_minutes` is offered.
 //! A regain is met with the intake change that holds the current weight by the model (the
@@ -49,12 +50,14 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 5] = [
+pub const HOLDING_FLAGS: [&str; 7] = [
     "fast_loss",
+    "fast_gain",
     "very_low_intake",
     "low_intake",
     "low_bmi",
     "medication_review",
+    "pregnancy",
 ];
 
 /// The profile flag that notes a glucose-lowering medicine.
@@ -290,6 +293,23 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
     }
 }
 
+/// Whether the current BMI rules out loss as a goal: below `loss_bmi_at_least` (which is above
+/// `underweight_bmi_below`), or a pregnancy noted in the profile. Such a person's report shows no target weight below their own and
+/// no loss milestone still to reach.
+pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
+    s.bmi
+        .is_some_and(|b| b < t.loss_bmi_at_least || b < t.underweight_bmi_below)
+        || s.clinical_flags.iter().any(|c| c == "pregnancy")
+}
+
+/// Whether loss is still the goal: a loss target not yet reached and a BMI that allows it.
+pub fn loss_is_goal(s: &State, t: &Thresholds) -> bool {
+    s.target_percent < 0.0
+        && s.change_percent.is_none_or(|c| c > s.target_percent)
+        && s.bmi.is_some_and(|b| b >= t.loss_bmi_at_least)
+        && !bmi_rules_out_loss(s, t)
+}
+
 /// One option offered, with the figures behind it (kept for the tests and the tidy view).
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct OptionView {
@@ -301,7 +321,8 @@ pub struct OptionView {
     /// More walking a day, minutes (0 when the option is intake only).
     #[serde(skip)]
     pub walk_minutes: f64,
-    /// Resulting intake at the lower bound of the implied intake, kcal/d.
+    /// Resulting intake at the careful end: the lower bound of the implied intake, or the
+    /// logged intake when that is lower, kcal/d.
     #[serde(skip)]
     pub intake_at_lower_bound: Option<f64>,
     /// Resulting loss rate at the fastest-loss bound of the slope, kg/week.
@@ -391,6 +412,9 @@ struct Facts {
     weight_kg: Option<f64>,
     slope: Option<Est>,
     implied: Option<Est>,
+    /// Mean logged intake over the period, kcal/d (the energy module's, when enough days
+    /// were logged).
+    logged: Option<f64>,
     balance: Option<Est>,
     tdee: Option<f64>,
     intake_need: Option<f64>,
@@ -427,6 +451,9 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
                 }
                 e
             }),
+        logged: energy
+            .and_then(|e| e.logged_intake_kcal_per_day.value)
+            .filter(|x| x.is_finite()),
         balance: energy.and_then(|e| est(e.energy_balance_kcal_per_day)),
         tdee: energy.and_then(|e| e.tdee_kcal_per_day.value),
         intake_need: option_change(options, OptionKind::Intake).map(|x| -x),
@@ -444,6 +471,19 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .any(|f| f == GLUCOSE_LOWERING_FLAG),
     };
     compose(phase, &state, &t, &facts)
+}
+
+/// The careful end of the person's intake before any change: the lower bound of the implied
+/// intake, or the mean logged intake when that is lower. A participant measures "less than
+/// now" against their own food log, so a cut that would take the log below the floor is
+/// refused even when the weight trend implies a higher intake.
+fn careful_intake(lower: f64, logged: Option<f64>) -> f64 {
+    logged.map_or(lower, |l| l.min(lower))
+}
+
+/// Whether the logged intake, not the implied intake's lower bound, sets the careful end.
+fn log_binds(lower: f64, logged: Option<f64>) -> bool {
+    logged.is_some_and(|l| l < lower)
 }
 
 fn pace(units: UnitSystem) -> &'static str {
@@ -582,7 +622,9 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         .balance
         .map(|b| fmt::round_to(b.value, KCAL_STEP))
         .unwrap_or(0.0);
-    let lower_intake = f.implied.map(|i| i.lower.unwrap_or(i.value));
+    let lower_intake = f
+        .implied
+        .map(|i| careful_intake(i.lower.unwrap_or(i.value), f.logged));
     if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
         g.options_intro =
             "By the energy-balance model, either of these would about stop the rise:".into();
@@ -600,17 +642,30 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             g.options_intro = "By the energy-balance model, this would about stop the rise:".into();
         }
         g.options_note = format!(
-            "{} to hold your weight where it is, not to bring it down. Even at the careful end of the estimate, eating this much less keeps your intake at or above {} a day.",
+            "{} to hold your weight where it is, not to bring it down. Even at the careful end of the estimate{}, eating this much less keeps your intake at or above {} a day.",
             if g.options.len() == 1 {
                 "This amount aims"
             } else {
                 "These amounts aim"
             },
+            if f.logged.is_some() {
+                " and going by your food log"
+            } else {
+                ""
+            },
             fmt::kcal(floor)
         );
     } else if cut >= t.min_intake_change_kcal {
         g.paragraphs.push(format!(
-            "Eating less is not suggested here, because at the careful end of the estimate it could take your intake below {} a day; more activity, or a talk with the program staff, is the safer way to steady your weight.",
+            "Eating less is not suggested here, because {} it could take your intake below {} a day; more activity, or a talk with the program staff, is the safer way to steady your weight.",
+            if f
+                .implied
+                .is_some_and(|i| log_binds(i.lower.unwrap_or(i.value), f.logged))
+            {
+                "going by your food log"
+            } else {
+                "at the careful end of the estimate"
+            },
             fmt::kcal(floor)
         ));
     } else {
@@ -618,12 +673,7 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             "The rise is small next to the uncertainty of the estimate, so this report suggests no particular amount. Going back to the habits that worked for you earlier — regular weigh-ins, a food log, your usual activity — is a good first step.".into(),
         );
     }
-    let loss_goal = state.target_percent < 0.0
-        && state
-            .change_percent
-            .is_none_or(|c| c > state.target_percent)
-        && state.bmi.is_some_and(|b| b >= t.loss_bmi_at_least);
-    if loss_goal {
+    if loss_is_goal(state, t) {
         g.closing.push(
             "Once your weight is steady again, next month's report will look at what it would take to get back to a steady loss.".into(),
         );
@@ -669,8 +719,19 @@ fn maintain(
     f: &Facts,
     floor: f64,
 ) -> GuidanceView {
-    let mut g = empty(Phase::Maintain(why), "Holding your new weight", floor);
     let change = state.change_percent.unwrap_or(0.0);
+    // "New" and "lower" weight only after a loss: someone enrolled at a healthy weight has
+    // none to hold.
+    let lost = change <= -1.0;
+    let mut g = empty(
+        Phase::Maintain(why),
+        if lost {
+            "Holding your new weight"
+        } else {
+            "Holding your weight"
+        },
+        floor,
+    );
     g.paragraphs.push(match why {
         MaintainWhy::TargetReached => format!(
             "You have reached your target of a {} % loss (you are at {} %). The aim from here is to hold your weight, not to lose more.",
@@ -678,8 +739,10 @@ fn maintain(
             fmt::fixed(change.abs(), 1)
         ),
         MaintainWhy::BmiBelowCutoff => format!(
-            "Your BMI is now below {}, in the range the WHO calls normal weight, so this report does not suggest losing more. The aim from here is to hold your weight.",
-            fmt::fixed(t.loss_bmi_at_least, 0)
+            "Your BMI is {}below {}, in the range the WHO calls normal weight, so this report does not suggest losing {}. The aim from here is to hold your weight.",
+            if lost { "now " } else { "" },
+            fmt::fixed(t.loss_bmi_at_least, 0),
+            if lost { "more" } else { "weight" }
         ),
         MaintainWhy::NoLossTarget => {
             "Your target is to hold your weight, so this report does not suggest losing any.".into()
@@ -705,8 +768,13 @@ fn maintain(
         ));
     }
     g.paragraphs.push(format!(
-        "Staying active — your program target is {} minutes a week — helps most people hold a lower weight.",
-        fmt::fixed(f.activity_target, 0)
+        "Staying active — your program target is {} minutes a week — helps most people hold {}.",
+        fmt::fixed(f.activity_target, 0),
+        if lost {
+            "a lower weight"
+        } else {
+            "their weight"
+        }
     ));
     g
 }
@@ -762,16 +830,29 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         ));
         return g;
     }
-    let lower = imp.lower.unwrap_or(imp.value);
+    let implied_lower = imp.lower.unwrap_or(imp.value);
+    let lower = careful_intake(implied_lower, f.logged);
     let room = lower - floor; // how much less is possible at the harmful bound
     let mut dropped_intake = false;
 
     // Eat less only.
     let cut = fmt::round_to(need, KCAL_STEP);
     if cut >= t.min_intake_change_kcal && lower - cut >= floor {
+        // Both frames when the food log and the weight trend disagree, so the amount "in all"
+        // never reads as more than the person logs.
+        let by_log = f
+            .logged
+            .filter(|l| (imp.value - l).abs() >= KCAL_STEP)
+            .map(|l| {
+                format!(
+                    ", or about {} going by your food log",
+                    fmt::int(fmt::round_to(l - cut, KCAL_STEP))
+                )
+            })
+            .unwrap_or_default();
         g.options.push(OptionView {
             text: format!(
-                "Eat about {} a day less than now (about {} a day in all, going by your weight trend).",
+                "Eat about {} a day less than now (about {} a day in all going by your weight trend{by_log}).",
                 fmt::kcal(cut),
                 fmt::kcal(fmt::round_to(imp.value - cut, KCAL_STEP))
             ),
@@ -826,7 +907,7 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         }
     );
     let mut note = format!(
-        "{} from the same energy-balance model as the figures above. {} your intake at or above {} a day and your loss under {}, even at the careful end of the estimate.",
+        "{} from the same energy-balance model as the figures above. {} your intake at or above {} a day and your loss under {}, even at the careful end of the estimate{}.",
         if g.options.len() == 1 {
             "This comes"
         } else {
@@ -838,11 +919,21 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
             "Each one keeps"
         },
         fmt::kcal(floor),
-        rate_words(max, f.units)
+        rate_words(max, f.units),
+        if f.logged.is_some() {
+            " and going by your food log"
+        } else {
+            ""
+        }
     );
     if dropped_intake {
         note.push_str(&format!(
-            " Eating less alone is not suggested, because at the careful end of the estimate it would take your intake below {} a day.",
+            " Eating less alone is not suggested, because {} it would take your intake below {} a day.",
+            if log_binds(implied_lower, f.logged) {
+                "going by your food log"
+            } else {
+                "at the careful end of the estimate"
+            },
             fmt::kcal(floor)
         ));
     }
@@ -918,6 +1009,16 @@ mod tests {
                 Phase::Clinician,
             ),
             (
+                "fast gain holds advice",
+                with(&|s| s.clinical_flags = vec!["fast_gain".into()], Regaining),
+                Phase::Clinician,
+            ),
+            (
+                "pregnancy holds advice",
+                with(&|s| s.clinical_flags = vec!["pregnancy".into()], Plateau),
+                Phase::Clinician,
+            ),
+            (
                 "diabetes-range lab does not hold advice",
                 with(
                     &|s| s.clinical_flags = vec!["lab_diabetes_range".into()],
@@ -983,6 +1084,38 @@ mod tests {
         }
     }
 
+    /// Who sees a loss goal at all (a target weight below their own, loss milestones still to
+    /// reach): not a person of BMI 22 who never lost (the report showed "Target 57.4 kg" and
+    /// "5 % loss · not yet" next to "this report does not suggest losing more"), nor one of
+    /// BMI 17. WHO 2000 (Technical Report Series 894) BMI classes: 18.5 and 25.
+    #[test]
+    fn loss_is_a_goal_only_at_a_bmi_that_allows_it() {
+        let t = Thresholds::default();
+        let mut s = st(Stable);
+        assert!(loss_is_goal(&s, &t) && !bmi_rules_out_loss(&s, &t));
+        for bmi in [22.1, 17.0, 24.9] {
+            s.bmi = Some(bmi);
+            assert!(bmi_rules_out_loss(&s, &t), "{bmi}");
+            assert!(!loss_is_goal(&s, &t), "{bmi}");
+        }
+        s.bmi = Some(25.0);
+        assert!(loss_is_goal(&s, &t));
+        // Past the target: no goal of loss, but the BMI does not rule it out.
+        s.change_percent = Some(-6.0);
+        assert!(!loss_is_goal(&s, &t) && !bmi_rules_out_loss(&s, &t));
+        // A hold target is no loss goal.
+        s.change_percent = Some(-1.0);
+        s.target_percent = 0.0;
+        assert!(!loss_is_goal(&s, &t));
+        // Without a BMI nothing is ruled out, except by a pregnancy.
+        s.bmi = None;
+        assert!(!bmi_rules_out_loss(&s, &t));
+        s.bmi = Some(31.0);
+        s.target_percent = -5.0;
+        s.clinical_flags = vec!["pregnancy".into()];
+        assert!(bmi_rules_out_loss(&s, &t) && !loss_is_goal(&s, &t));
+    }
+
     fn facts() -> Facts {
         Facts {
             units: UnitSystem::Metric,
@@ -1004,6 +1137,7 @@ mod tests {
                 lower: Some(-150.0),
                 upper: Some(150.0),
             }),
+            logged: None,
             tdee: Some(2010.0),
             intake_need: Some(560.0),
             walk_need: Some(95.0),
@@ -1051,6 +1185,62 @@ mod tests {
         assert!(
             g.options_note
                 .contains("Eating less alone is not suggested")
+        );
+    }
+
+    /// Someone who logs far less than the weight trend implies (implied 2,640, 95 % interval
+    /// 2,160–3,130; logged 1,800) is never told to eat an amount less that would take their
+    /// food log below the floor: 750 kcal less reads as about 1,050 kcal a day by the log.
+    #[test]
+    fn intake_cuts_are_checked_against_the_food_log_too() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.implied = Some(Est {
+            value: 2640.0,
+            lower: Some(2160.0),
+            upper: Some(3130.0),
+        });
+        f.intake_need = Some(750.0);
+        f.walk_need = Some(120.0);
+        f.logged = Some(1800.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        // Before: "Eat about 750 kcal a day less" (2,160 − 750 = 1,410 ≥ 1,200).
+        assert!(g.options.iter().all(|o| o.intake_cut_kcal < 750.0), "{g:?}");
+        for o in &g.options {
+            assert!(1800.0 - o.intake_cut_kcal >= 1200.0, "{o:?}");
+            assert!(o.intake_at_lower_bound.unwrap() >= 1200.0, "{o:?}");
+        }
+        // The mix: half of 750 = 375 → 350 kcal (the log leaves 600 of room), the rest walking:
+        // (750 − 350)/750 × 120 = 64 min > 60, so nothing is left to offer.
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        // A log that leaves room: the option gives both frames.
+        f.logged = Some(2300.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert_eq!(g.options[0].intake_cut_kcal, 750.0);
+        assert_eq!(g.options[0].intake_at_lower_bound, Some(1410.0));
+        assert!(
+            g.options[0]
+                .text
+                .contains("about 1,900 kcal a day in all going by your weight trend, or about 1,550 going by your food log"),
+            "{}",
+            g.options[0].text
+        );
+        assert!(g.options_note.contains("and going by your food log"));
+        // A regain met with "eat less": the cut is checked against the log too.
+        f.logged = Some(1450.0);
+        f.balance = Some(Est {
+            value: 300.0,
+            lower: Some(150.0),
+            upper: Some(450.0),
+        });
+        let g = compose(Phase::Regain, &st(Regaining), &t, &f);
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        assert!(
+            g.paragraphs
+                .iter()
+                .any(|p| p.contains("going by your food log it could take your intake below 1,200")),
+            "{:?}",
+            g.paragraphs
         );
     }
 
@@ -1123,6 +1313,20 @@ mod tests {
         assert!(all.contains("about 2,000 kcal a day holds"), "{all}");
         assert!(all.contains("about 200 kcal a day more"), "{all}");
         assert!(!all.contains("less"), "{all}");
+        assert_eq!(g.heading, "Holding your new weight");
+        // Enrolled at a healthy weight and never lost: no "new" or "lower" weight to hold.
+        s.change_percent = Some(-0.3);
+        s.status = Stable;
+        let g = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f);
+        let all = g.paragraphs.join(" ");
+        assert_eq!(g.heading, "Holding your weight");
+        assert!(all.contains("Your BMI is below 25"), "{all}");
+        assert!(all.contains("does not suggest losing weight"), "{all}");
+        assert!(all.contains("hold their weight"), "{all}");
+        assert!(
+            !all.contains("new weight") && !all.contains("lower weight"),
+            "{all}"
+        );
     }
 
     #[test]

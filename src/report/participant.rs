@@ -163,11 +163,20 @@ pub fn build(
     let v = results.views();
     let left = p.withdrew.filter(|w| *w <= plan.period.to);
 
+    // Whether loss is a goal at all: below the loss BMI cut-off (normal weight, underweight)
+    // the report shows no target weight below the person's own and no loss milestone "not yet"
+    // reached, which would read as advice to lose.
+    let thresholds = guidance::Thresholds::from_plan(plan);
+    let state = guidance::state_of(plan, data, results);
+    let no_loss = guidance::bmi_rules_out_loss(&state, &thresholds);
+    let loss_goal = guidance::loss_is_goal(&state, &thresholds);
+
     // Weight chart, with the target weight when there is a starting weight.
     let target_kg = v
         .outcomes
         .as_ref()
         .and_then(|o| o.baseline_weight_kg)
+        .filter(|_| !(no_loss && p.targets.weight_change_percent < 0.0))
         .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
     let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan);
 
@@ -208,7 +217,7 @@ pub fn build(
         },
         headline: headline(v.trend.as_ref(), v.outcomes.as_ref(), units, left),
         summary: summary(&v, units),
-        milestones: milestones(v.outcomes.as_ref()),
+        milestones: milestones(v.outcomes.as_ref(), loss_goal),
         weight_chart: weight_view,
         energy: energy_view,
         adherence: adherence_view,
@@ -223,7 +232,7 @@ pub fn build(
             .map(|f| format!("{}: {}", f.module, f.message))
             .collect(),
         extra: extra_modules(results),
-        cautions: cautions::participant(&guidance::Thresholds::from_plan(plan)),
+        cautions: cautions::participant(&thresholds),
     };
     ParticipantReport {
         ctx,
@@ -273,7 +282,12 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
             ),
         ));
     }
-    if let Some(r) = trend.and_then(|t| t.slope_kg_per_week.value) {
+    // With too few recent weigh-ins the headline says the movement cannot be seen; a rate
+    // beside it (from a week of data, or weekends only) would say the opposite.
+    if let Some(r) = trend
+        .filter(|t| t.status != Status::InsufficientData)
+        .and_then(|t| t.slope_kg_per_week.value)
+    {
         summary.push(Kv::new(
             "Recent rate (last 4 weeks)",
             &fmt::rate_per_week(r, units),
@@ -294,12 +308,15 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
     summary
 }
 
-/// Milestones (3, 5, 7, 10 % loss) and when they were reached.
-fn milestones(outcomes: Option<&OutcomesView>) -> Vec<MilestoneView> {
+/// Milestones (3, 5, 7, 10 % loss) and when they were reached; when loss is not the goal
+/// (target reached, a BMI below the loss cut-off, a target that is not a loss), only those
+/// already reached.
+fn milestones(outcomes: Option<&OutcomesView>, loss_goal: bool) -> Vec<MilestoneView> {
     outcomes
         .map(|o| {
             o.milestones
                 .iter()
+                .filter(|m| loss_goal || m.reached)
                 .map(|m| MilestoneView {
                     label: format!("{} % loss", num_text(Some(m.threshold_percent))),
                     reached: m.reached,
@@ -482,8 +499,11 @@ fn headline(
         );
     }
     match status {
+        // "Going down by" carries the sign already: "by about 1.32 kg/week", not "−1.32".
         Status::Losing => format!(
-            "Your weight trend is going down, by about {rate_s} over the last four weeks.{since}"
+            "Your weight trend is going down, by about {} {}/week over the last four weeks.{since}",
+            fmt::fixed(fmt::weight_value(rate.unwrap_or(0.0), units).abs(), 2),
+            fmt::weight_unit(units)
         ),
         Status::Plateau => {
             format!("Your weight has held steady over the last four weeks (a plateau).{since}")
@@ -942,6 +962,48 @@ mod activity_unread_tests {
             .unwrap()
             .value
             .clone()
+    }
+
+    /// "Going down, by about −1.32 kg/week" said the sign twice.
+    #[test]
+    fn a_falling_trend_is_told_without_a_double_sign() {
+        let mut t = TrendView {
+            status: Status::Losing,
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week.value = Some(-1.32);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        assert_eq!(
+            h,
+            "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
+        );
+        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None);
+        assert!(h.contains("by about 2.91 lb/week"), "{h}");
+    }
+
+    /// "Too few recent weigh-ins to see how your weight moved" stood above "Recent rate (last
+    /// 4 weeks) +0.44 kg/week".
+    #[test]
+    fn no_recent_rate_beside_too_few_weigh_ins() {
+        let mut t = TrendView {
+            status: Status::InsufficientData,
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week.value = Some(0.44);
+        let views = |t: &TrendView| BuiltinViews {
+            trend: Some(t.clone()),
+            energy: None,
+            adherence: None,
+            outcomes: None,
+        };
+        let has_rate = |v: &BuiltinViews| {
+            summary(v, UnitSystem::Metric)
+                .iter()
+                .any(|k| k.label.starts_with("Recent rate"))
+        };
+        assert!(!has_rate(&views(&t)));
+        t.status = Status::Regaining;
+        assert!(has_rate(&views(&t)));
     }
 
     #[test]

@@ -156,6 +156,16 @@ fn every_sample_participants_options_follow_the_rules() {
                 assert!(r <= t.max_loss_kg_per_week + 1e-9, "{id}: {o:?}");
             }
         }
+        // Below BMI 25 a loss target is not shown: no target weight on the chart and no
+        // loss milestone "not yet" reached.
+        if under_25 && state.target_percent < 0.0 {
+            assert!(
+                !ctx.weight_chart.alt.contains("target weight"),
+                "{id}: {}",
+                ctx.weight_chart.alt
+            );
+            assert!(ctx.milestones.iter().all(|m| m.reached), "{id}");
+        }
         // One number format on the page: no "1020 kcal" next to "1,020 kcal".
         let json = serde_json::to_string(ctx).unwrap();
         assert!(

@@ -84,8 +84,9 @@ const INTAKE_DRIFT_PER_DAY: f64 = 3.0;
 /// stop and regain; with all of it, 85 % (seed 20261202; 92.5 → 96.2 % over everyone;
 /// VALIDATION.md).
 const FADE_SHARE: f64 = 1.0;
-/// Smallest BMI a reported steady state may have: the linearised energy balance is not a model
-/// of starvation (program choice; BMI 16 is the WHO threshold of severe thinness).
+/// Smallest BMI a reported steady state or forecast may reach: the linearised energy balance
+/// is not a model of starvation (program choice; BMI 16 is the WHO threshold of severe
+/// thinness).
 const MIN_STEADY_STATE_BMI: f64 = 16.0;
 
 struct Settings {
@@ -508,7 +509,19 @@ pub(crate) fn run(
     p.lin = LinearisedModel::from_baseline(start.bw0, start.fm0, start.rmr0, pal_post);
 
     let cur = current_state(ctx, &s, &p, &baseline, trend_out.is_none(), start.bw0);
-    if cur.slope.is_none() && trend_out.is_some() {
+    if cur.unexplained {
+        out.push_flag(
+            EnergyFlag::UnexplainedWeightChange.as_str(),
+            FlagSeverity::Notice,
+            format!(
+                "Over the last {} days the weight trend fell faster than eating nothing at all \
+                 would explain. A change of scale or clothing, a mistyped weigh-in or a shift \
+                 in body water is more likely; please check the recent weigh-ins. The intake \
+                 implied by the weight trend, the forecast and the options are not shown.",
+                s.window_days
+            ),
+        );
+    } else if cur.slope.is_none() && trend_out.is_some() {
         out.push_flag(
             EnergyFlag::InsufficientData.as_str(),
             FlagSeverity::Info,
@@ -628,6 +641,9 @@ struct Current {
     logged: Option<f64>,
     logged_days: usize,
     implied: Option<Band>,
+    /// The trend's change over the window is faster than any intake of zero or more can
+    /// explain (`slope` and `implied` are then withheld).
+    unexplained: bool,
     tdee: f64,
     underreport: Option<Band>,
     /// SD of the current energy balance without the baseline requirement (it cancels in
@@ -702,6 +718,16 @@ fn current_state(
             upper: Some((v + h).max(0.0)),
         }
     });
+    // An implied intake below zero is a weight change faster than eating nothing at all could
+    // give: a step in the weigh-ins (another scale, clothing, a typing error) or a fluid shift,
+    // not energy balance. Nothing is read from it: no implied intake, balance, forecast or
+    // options, and the caller says why.
+    let unexplained = implied.is_some_and(|i| i.value < 0.0);
+    let (slope, implied, balance_sd) = if unexplained {
+        (None, None, 0.0)
+    } else {
+        (slope, implied, balance_sd)
+    };
     // Expenditure: by energy balance when the intake is implied (intake minus the energy
     // stored, ρ_stored·dBW/dt with the energy density of the tissue change; Hall 2008 Int J
     // Obes 32:573, from memory), else resting × the person's PAL + logged activity.
@@ -735,6 +761,7 @@ fn current_state(
     Current {
         bw,
         slope,
+        unexplained,
         met_h_window,
         rmr,
         activity,
@@ -941,12 +968,22 @@ fn forecast(
             });
         }
     }
+    let h_m = p.height_cm / 100.0;
+    // Like the steady state, a forecast that reaches a BMI below 16 (its path or the lower
+    // edge of its band) is not shown: the model is not one of starvation, and a line drawn
+    // into severe thinness is no forecast to give a participant.
+    let min_kg = MIN_STEADY_STATE_BMI * h_m * h_m;
+    if points
+        .iter()
+        .any(|pt| pt.value < min_kg || pt.lower.is_some_and(|l| l < min_kg))
+    {
+        points.clear();
+    }
     let end = points.last().map(|pt| Band {
         value: pt.value,
         lower: pt.lower,
         upper: pt.upper,
     });
-    let h_m = p.height_cm / 100.0;
     let ss = |x: f64| {
         p.model
             .steady_state_weight(x, cur.met_h_window)
@@ -1134,8 +1171,10 @@ fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate
         let expenditure = bw.map(|w| p.rmr_at(w, ws) * s.base_pal + p.activity_kcal(ws, we, w));
         let (logged, _) = p.logged(ws, we);
         let implied = match (bw, mean_band(&p.trend.slope, ws, we)) {
+            // Below zero the week's change is not energy balance (see `current_state`).
             (Some(w), Some(sl)) => {
                 Some(p.implied_intake(w, sl.value, p.activity_met_hours(ws, we)))
+                    .filter(|x| *x >= 0.0)
             }
             _ => None,
         };

@@ -309,6 +309,12 @@ impl MetricModule for EnergyModule {
                 "",
                 "Logged intake below the intake floor",
             ),
+            OutputSpec::new(
+                "unexplained_weight_change",
+                "flag",
+                "",
+                "Weight fell faster than a zero intake explains",
+            ),
         ];
         ModuleSpec {
             id: "energy".into(),

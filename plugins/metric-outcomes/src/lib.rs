@@ -35,11 +35,17 @@
 //!   the reporting period (on or after enrolment; at least [`MIN_INTAKE_DAYS`] days) is below
 //!   `very_low_intake` (800 kcal/d, VLCD, NIH/NHLBI 1998, from memory) or below the sex-specific
 //!   floor (1200 women / 1500 men kcal/d, common practice). Only the more serious one is raised.
+//! * `fast_gain` (clinical): the same test as `fast_loss` on a rise: faster than
+//!   `fast_loss_kg_per_week` over `fast_loss_span_days` in a row, ending in the period (a change
+//!   of scale or clothing, a mistyped weigh-in, or fluid, more often than tissue).
 //! * `low_bmi` (clinical): current BMI in the WHO underweight class (< 18.5 kg/m²).
 //! * `lab_diabetes_range` (clinical) / `lab_prediabetes_range` (notice): judged on the latest
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
 //!   `fast_loss`, `low_intake` or `very_low_intake` was raised (risk of low blood sugar).
+//! * `pregnancy` (clinical): the profile carries `pregnant`. Loss targets, the intake floors
+//!   and the energy model are for adults who are not pregnant, so the report holds every
+//!   suggestion and points to a clinician.
 //! * `insufficient_data` (info): no weigh-in yet.
 //!
 //! # Cut points
@@ -86,6 +92,8 @@ pub const MIN_INTAKE_DAYS: usize = 4;
 
 /// Profile flag for people who take glucose-lowering medication.
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
+/// Profile flag for a pregnancy.
+pub const PREGNANCY_FLAG: &str = "pregnant";
 
 /// Round-off allowance at cut points (see the crate docs).
 const CUT_EPS: f64 = 1e-9;
@@ -581,6 +589,18 @@ impl MetricModule for OutcomesModule {
                     "latest lab value in the prediabetes range",
                 ),
                 OutputSpec::new(
+                    OutcomesFlag::FastGain.as_str(),
+                    "flag",
+                    "",
+                    "trend gain faster than fast_loss_kg_per_week over fast_loss_span_days",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::Pregnancy.as_str(),
+                    "flag",
+                    "",
+                    "pregnancy noted in the profile (holds every suggestion)",
+                ),
+                OutputSpec::new(
                     OutcomesFlag::MedicationReview.as_str(),
                     "flag",
                     "",
@@ -618,11 +638,24 @@ impl MetricModule for OutcomesModule {
             );
         }
         let fast = push_fast_loss_flag(&mut output, ctx, &w.levels);
+        push_fast_gain_flag(&mut output, ctx, &w.levels);
         let low_intake = push_intake_flags(&mut output, ctx, data);
         push_low_bmi_flag(&mut output, bmi1);
         push_lab_flags(&mut output, &labs, profile.sex);
         if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG) && (fast || low_intake) {
             push_medication_flag(&mut output, fast, low_intake);
+        }
+        if profile.flags.iter().any(|f| f == PREGNANCY_FLAG) {
+            // Weight-loss targets, the intake floors and the energy model are for adults who
+            // are not pregnant; weight gain is expected in pregnancy (IOM 2009, Weight Gain
+            // During Pregnancy — from memory), so the report holds every suggestion.
+            output.push_flag(
+                OutcomesFlag::Pregnancy.as_str(),
+                FlagSeverity::Clinical,
+                "The profile notes a pregnancy. Weight change and eating during pregnancy \
+                 should be guided by a licensed clinician or midwife; this report's loss \
+                 targets and estimates are for adults who are not pregnant.",
+            );
         }
         Ok(output)
     }
@@ -874,6 +907,48 @@ fn push_fast_loss_flag(
         ),
     );
     true
+}
+
+/// The `fast_gain` flag: the trend level rose faster than `fast_loss_kg_per_week` over
+/// `fast_loss_span_days` in a row ending in the period. Tissue gain that fast needs a surplus of
+/// about 1,100 kcal a day (overfeeding by 1,000 kcal/d gave about 0.7 kg a week: Bouchard et
+/// al. 1990, N Engl J Med 322:1477 — from memory); such a rise is more often a change of scale
+/// or clothing, or fluid (a warning sign a clinician should see, e.g. in heart failure — common
+/// practice). Without this flag the report answered a 10 kg step in the weigh-ins with "eat
+/// about 2,850 kcal a day less".
+fn push_fast_gain_flag(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    levels: &[(NaiveDate, f64)],
+) {
+    let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
+    let span = ctx
+        .setting_f64("fast_loss_span_days", 21.0)
+        .round()
+        .max(1.0) as usize;
+    // The same spans as for fast loss, on the level turned upside down.
+    let daily: Vec<(NaiveDate, f64)> = fill_daily(levels)
+        .into_iter()
+        .filter(|(d, _)| *d <= ctx.period.to)
+        .map(|(d, v)| (d, -v))
+        .collect();
+    let Some((_, (d0, d1, rate))) =
+        fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from)
+    else {
+        return;
+    };
+    output.push_flag(
+        OutcomesFlag::FastGain.as_str(),
+        FlagSeverity::Clinical,
+        format!(
+            "Weight went up faster than {} a week over {span} days in a row (most recently \
+             {d0} to {d1}: about {} a week). A rise this fast is more often a change of scale \
+             or clothing, a mistyped weigh-in or fluid than body fat: please check the \
+             weigh-ins, and review the rise with a licensed clinician.",
+            kg_lb(limit),
+            kg_lb(rate),
+        ),
+    );
 }
 
 /// The `very_low_intake` / `low_intake` flags (only the more serious one); returns whether one

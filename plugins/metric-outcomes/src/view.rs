@@ -128,6 +128,10 @@ code_enum! {
         LabPrediabetesRange = "lab_prediabetes_range" => "Lab result in the prediabetes range",
         /// Glucose-lowering medication with fast loss or low intake.
         MedicationReview = "medication_review" => "Medication review",
+        /// Gain faster than the fast-loss limit over the same span.
+        FastGain = "fast_gain" => "Fast gain",
+        /// The profile notes a pregnancy.
+        Pregnancy = "pregnancy" => "Pregnancy noted in the profile",
     }
 }
 

@@ -690,6 +690,41 @@ fn medication_review_with_glucose_lowering_medicine() {
     assert_eq!(codes(&run(&c(fast), &p)), vec!["fast_loss"]);
 }
 
+/// A pregnancy noted in the profile raises a clinical flag (which holds every suggestion in
+/// the participant's report), whatever the weight does.
+#[test]
+fn pregnancy_in_the_profile_is_a_clinical_flag() {
+    let mut p = steady_loser();
+    let c = |t| ctx(day(0), day(30), Some(t));
+    let steady = trend_output(30, 30, -0.875, |k| 100.0 - 0.125 * k as f64);
+    assert!(run(&c(steady.clone()), &p).flags.is_empty());
+    p.profile.flags = vec!["pregnant".into()];
+    let out = run(&c(steady), &p);
+    assert_eq!(codes(&out), vec!["pregnancy"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+}
+
+/// A trend that rises 1.4 kg a week (a 10 kg step in the weigh-ins reads like this) raises a
+/// clinical `fast_gain` flag; a rise of 0.5 kg a week does not.
+#[test]
+fn a_fast_rise_is_a_clinical_flag() {
+    let p = steady_loser();
+    let c = |t| ctx(day(0), day(30), Some(t));
+    let slow = trend_output(30, 30, 0.5, |k| 90.0 + 0.5 / 7.0 * k as f64);
+    assert!(run(&c(slow), &p).flags.is_empty());
+    let fast = trend_output(30, 30, 1.4, |k| 90.0 + 0.2 * k as f64);
+    let out = run(&c(fast), &p);
+    assert_eq!(codes(&out), vec!["fast_gain"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    assert!(
+        out.flags[0]
+            .message
+            .contains("about 1.4 kg (3.1 lb) a week"),
+        "{}",
+        out.flags[0].message
+    );
+}
+
 #[test]
 fn falls_back_to_weigh_ins_without_a_trend() {
     let mut p = participant(Sex::Male, 180.0);

@@ -734,3 +734,123 @@ fn logs_that_move_with_the_implied_intake_identify_under_reporting() {
     let pal = stopped.scalar("pal_estimate").unwrap();
     assert!((pal - 1.4).abs() < 0.08, "pal {pal}");
 }
+
+/// A 10 kg step in the weigh-ins over three days (another scale, a typing error) makes the
+/// trend fall far faster than a zero intake could: the module withholds the implied intake,
+/// the balance, the forecast and the options, says why, and prints no negative weekly intake.
+#[test]
+fn a_loss_faster_than_zero_intake_gives_no_implied_intake() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    // 90 kg, steady, then 10 kg down over 3 days ten days before the period ends.
+    let step_at = n - 10;
+    let weights: Vec<f64> = (0..n)
+        .map(|i| match i {
+            i if i < step_at => 90.0,
+            i if i < step_at + 3 => 90.0 - 10.0 * (i + 1 - step_at) as f64 / 3.0,
+            _ => 80.0,
+        })
+        .collect();
+    let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
+    data.weights = (0..n)
+        .step_by(2)
+        .map(|i| WeighIn {
+            date: day_after(enrolled, i as u64),
+            time: None,
+            weight: Mass::from_kg(weights[i]),
+            source: None,
+        })
+        .collect();
+    let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, &weights, 0.4, 0.05, &[]),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    // Before the guard: an implied intake of about −2,000 kcal/d with a 95 % interval of 0–0.
+    for name in [
+        "implied_intake_kcal_per_day",
+        "implied_intake_lower_kcal_per_day",
+        "energy_balance_kcal_per_day",
+        "forecast_weight_at_end_kg",
+    ] {
+        assert_eq!(out.scalar(name), None, "{name}");
+    }
+    assert!(
+        out.flags
+            .iter()
+            .any(|f| f.code == "unexplained_weight_change"),
+        "{:?}",
+        out.flags
+    );
+    // Expenditure falls back to resting × activity level + logged activity: positive.
+    assert!(out.scalar("tdee_kcal_per_day").unwrap() > 1000.0);
+    // The options say nothing: no amount without a balance.
+    let opt = out.table("options").unwrap();
+    assert_eq!(cell_num(opt, 0, "change_per_day"), None);
+    // No week shows a negative implied intake (the step's week shows none).
+    let weekly = out.table("weekly_energy").unwrap();
+    for r in 0..weekly.rows.len() {
+        if let Some(x) = cell_num(weekly, r, "implied_intake_kcal_per_day") {
+            assert!(x >= 0.0, "week {r}: {x}");
+        }
+    }
+    assert_eq!(
+        cell_num(weekly, weekly.rows.len() - 2, "implied_intake_kcal_per_day"),
+        None
+    );
+}
+
+/// A woman of 165 cm at 46 kg (BMI 16.9) losing 0.4 kg a week: the forecast ran on to about
+/// 41 kg (BMI 15) with its band's lower edge lower still. Below BMI 16 (WHO severe thinness)
+/// no forecast is given, as no steady state is.
+#[test]
+fn no_forecast_reaches_below_bmi_16() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let series = |start: f64, per_week: f64| -> Vec<f64> {
+        (0..n).map(|i| start - per_week * i as f64 / 7.0).collect()
+    };
+    let run_with = |weights: &[f64]| {
+        let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
+        data.weights = (0..n)
+            .step_by(2)
+            .map(|i| WeighIn {
+                date: day_after(enrolled, i as u64),
+                time: None,
+                weight: Mass::from_kg(weights[i]),
+                source: None,
+            })
+            .collect();
+        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, weights, 0.3, 0.005, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    let bmi16 = 16.0 * 1.65 * 1.65;
+    let out = run_with(&series(53.0, 0.4));
+    assert!(out.scalar("implied_intake_kcal_per_day").is_some());
+    assert_eq!(out.scalar("forecast_weight_at_end_kg"), None);
+    assert_eq!(out.scalar("steady_state_weight_kg"), None);
+    let fc = out
+        .series
+        .iter()
+        .find(|s| s.name == "forecast_weight")
+        .unwrap();
+    assert!(fc.points.is_empty(), "{:?}", fc.points.first());
+    // The same loss from 90 kg is forecast, and stays above BMI 16.
+    let out = run_with(&series(90.0, 0.4));
+    let end = out.scalar_full("forecast_weight_at_end_kg").unwrap();
+    assert!(end.lower.unwrap() > bmi16, "{end:?}");
+    assert!(end.value.unwrap() < 90.0 - 0.4 * n as f64 / 7.0);
+}
