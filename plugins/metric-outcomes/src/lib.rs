@@ -871,26 +871,42 @@ fn labs_table(labs: &[&LabResult], sex: Sex) -> Table {
     }
 }
 
+/// `fast_loss_kg_per_week` and `fast_loss_span_days` (shared by the fast-loss and fast-gain
+/// flags).
+fn fast_change_settings(ctx: &ModuleContext) -> (f64, usize) {
+    let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
+    let span = ctx
+        .setting_f64("fast_loss_span_days", 21.0)
+        .round()
+        .max(1.0) as usize;
+    (limit, span)
+}
+
+/// [`fast_loss_spans`] of the trend level × `sign` (1 = loss, −1 = gain) up to the end of the
+/// period, kept only when the latest span ends in the period: a fast spell months ago was
+/// flagged in that month's report and is not raised again every month after.
+fn fast_spans_in_period(
+    ctx: &ModuleContext,
+    levels: &[(NaiveDate, f64)],
+    sign: f64,
+) -> Option<(f64, (NaiveDate, NaiveDate, f64))> {
+    let (limit, span) = fast_change_settings(ctx);
+    let daily: Vec<(NaiveDate, f64)> = fill_daily(levels)
+        .into_iter()
+        .filter(|(d, _)| *d <= ctx.period.to)
+        .map(|(d, v)| (d, sign * v))
+        .collect();
+    fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from)
+}
+
 /// The `fast_loss` flag; returns whether it was raised.
 fn push_fast_loss_flag(
     output: &mut ModuleOutput,
     ctx: &ModuleContext,
     levels: &[(NaiveDate, f64)],
 ) -> bool {
-    let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
-    let span = ctx
-        .setting_f64("fast_loss_span_days", 21.0)
-        .round()
-        .max(1.0) as usize;
-    // Only spans that end in the reporting period: a fast spell months ago was flagged in
-    // that month's report and is not raised again every month after.
-    let daily: Vec<(NaiveDate, f64)> = fill_daily(levels)
-        .into_iter()
-        .filter(|(d, _)| *d <= ctx.period.to)
-        .collect();
-    let fast =
-        fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from);
-    let Some((fastest, (d0, d1, rate))) = fast else {
+    let (limit, span) = fast_change_settings(ctx);
+    let Some((fastest, (d0, d1, rate))) = fast_spans_in_period(ctx, levels, 1.0) else {
         return false;
     };
     output.push_flag(
@@ -921,20 +937,9 @@ fn push_fast_gain_flag(
     ctx: &ModuleContext,
     levels: &[(NaiveDate, f64)],
 ) {
-    let limit = ctx.setting_f64("fast_loss_kg_per_week", 1.0);
-    let span = ctx
-        .setting_f64("fast_loss_span_days", 21.0)
-        .round()
-        .max(1.0) as usize;
+    let (limit, span) = fast_change_settings(ctx);
     // The same spans as for fast loss, on the level turned upside down.
-    let daily: Vec<(NaiveDate, f64)> = fill_daily(levels)
-        .into_iter()
-        .filter(|(d, _)| *d <= ctx.period.to)
-        .map(|(d, v)| (d, -v))
-        .collect();
-    let Some((_, (d0, d1, rate))) =
-        fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from)
-    else {
+    let Some((_, (d0, d1, rate))) = fast_spans_in_period(ctx, levels, -1.0) else {
         return;
     };
     output.push_flag(
