@@ -9,7 +9,7 @@
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
 //! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
-//! | 3 | weight trend rising over the last four weeks | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
+//! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least`, or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
 //! | 5a | otherwise, too few recent weigh-ins for a trend | `too_little_data` | as row 4 |
@@ -40,7 +40,7 @@ use cohortpress_metric_api::view::Interval;
 use cohortpress_metric_api::{FlagSeverity, ParticipantData, Sex, UnitSystem};
 use cohortpress_metric_energy::view::{OptionKind, OptionRow};
 use cohortpress_metric_outcomes::view::OutcomesFlag;
-use cohortpress_metric_trend::view::Status;
+use cohortpress_metric_trend::view::{RegainVerdict, Status, TrendView};
 use serde::Serialize;
 
 /// Step to which intake amounts are rounded, kcal/d.
@@ -206,6 +206,10 @@ pub struct State {
     pub target_percent: f64,
     /// Trend of the last four weeks.
     pub status: TrendStatus,
+    /// The trend weight has risen from its lowest point by more than the trend module's level
+    /// test allows for chance (its `regain_verdict` is `regaining`), whatever the last four
+    /// weeks' slope says.
+    pub regained: bool,
 }
 
 /// Why maintenance is the goal.
@@ -270,7 +274,12 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
     if holding || s.bmi.is_some_and(|b| b < t.underweight_bmi_below) {
         return Phase::Clinician;
     }
-    if s.status == TrendStatus::Regaining {
+    // A rise confirmed by level counts when the last four weeks cannot speak for themselves
+    // (sparse weigh-ins, or a slope too uncertain to call); a trend that has clearly levelled
+    // off again after the rise is a plateau, met with the plateau's options.
+    if s.status == TrendStatus::Regaining
+        || (s.regained && matches!(s.status, TrendStatus::Insufficient | TrendStatus::Unclear))
+    {
         return Phase::Regain;
     }
     let (Some(bmi), Some(change)) = (s.bmi, s.change_percent) else {
@@ -401,7 +410,35 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
             .trend
             .as_ref()
             .map_or(TrendStatus::Insufficient, |t| t.status.into()),
+        regained: v.trend.as_ref().is_some_and(regain_confirmed),
     }
+}
+
+/// Whether the trend module's level test confirms a rise from the lowest trend weight.
+pub fn regain_confirmed(t: &TrendView) -> bool {
+    t.regain_verdict == Some(RegainVerdict::Regaining)
+}
+
+/// The confirmed rise from the lowest trend weight in words, with its 95 % range:
+/// `about 5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg)`; `None` unless the
+/// level test confirms it.
+pub fn regain_words(t: &TrendView, units: UnitSystem) -> Option<String> {
+    if !regain_confirmed(t) {
+        return None;
+    }
+    let rise = t.regain_kg.value.filter(|x| x.is_finite() && *x > 0.0)?;
+    let unit = fmt::weight_unit(units);
+    let one = |kg: f64| fmt::fixed(fmt::weight_value(kg, units), 1);
+    let range = match (t.regain_kg.lower, t.regain_kg.upper) {
+        (Some(l), Some(u)) if l.is_finite() && u.is_finite() => {
+            format!(" (95 % range {} to {} {unit})", one(l.max(0.0)), one(u))
+        }
+        _ => String::new(),
+    };
+    Some(format!(
+        "about {} {unit} above its lowest point so far{range}",
+        one(rise)
+    ))
 }
 
 /// Everything the wording needs besides the state.
@@ -411,6 +448,8 @@ struct Facts {
     withdrew: Option<NaiveDate>,
     weight_kg: Option<f64>,
     slope: Option<Est>,
+    /// The confirmed rise from the lowest trend weight, in words ([`regain_words`]).
+    regain: Option<String>,
     implied: Option<Est>,
     /// Mean logged intake over the period, kcal/d (the energy module's, when enough days
     /// were logged).
@@ -441,6 +480,7 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .and_then(|t| t.current_weight_kg.value)
             .or_else(|| v.outcomes.as_ref().and_then(|o| o.current_weight_kg.value)),
         slope: trend.and_then(|t| est(t.slope_kg_per_week)),
+        regain: trend.and_then(|t| regain_words(t, plan.program.info.units)),
         // The interval of the implied intake; where the module also gives its lower bound as
         // a scalar of its own, the lower (more harmful) of the two is used.
         implied: energy
@@ -613,9 +653,22 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         .slope
         .map(|s| format!(", by about {}", rate_words(s.value, f.units)))
         .unwrap_or_default();
-    g.paragraphs.push(format!(
-        "Your weight has been going up over the last four weeks{rate}. This happens to most people at some point; the first step is to steady it where it is now."
-    ));
+    // Row 3 is reached by a rising slope, or by a rise from the lowest point confirmed by level
+    // while the last four weeks cannot say whether it goes on.
+    let opening = match (&f.regain, state.status) {
+        (Some(words), s) if s != TrendStatus::Regaining => format!(
+            "Your trend weight is now {words}. {} This happens to most people at some point; the first step is to steady it where it is now.",
+            if s == TrendStatus::Insufficient {
+                "There are too few recent weigh-ins to tell whether it is still rising."
+            } else {
+                "The last four weeks are too uncertain to tell whether it is still rising."
+            }
+        ),
+        _ => format!(
+            "Your weight has been going up over the last four weeks{rate}. This happens to most people at some point; the first step is to steady it where it is now."
+        ),
+    };
+    g.paragraphs.push(opening);
     // What holds the current weight by the model: the energy balance, rounded; offered only
     // when it clears the floor at the lower bound of the implied intake.
     let cut = f
@@ -672,6 +725,12 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         g.paragraphs.push(
             "The rise is small next to the uncertainty of the estimate, so this report suggests no particular amount. Going back to the habits that worked for you earlier — regular weigh-ins, a food log, your usual activity — is a good first step.".into(),
         );
+    }
+    if state.status == TrendStatus::Insufficient {
+        g.closing.push(format!(
+            "Weighing in about {} times a week, at the same time of day, lets next month's report show whether your weight has steadied.",
+            fmt::fixed(f.weigh_ins_target, 0)
+        ));
     }
     if loss_is_goal(state, t) {
         g.closing.push(
@@ -955,6 +1014,7 @@ mod tests {
             change_percent: Some(-2.0),
             target_percent: -5.0,
             status,
+            regained: false,
         }
     }
 
@@ -974,6 +1034,26 @@ mod tests {
             ("unclear, loss goal", st(Unclear), Phase::RestartLoss),
             ("losing, loss goal", st(Losing), Phase::KeepGoing),
             ("regaining", st(Regaining), Phase::Regain),
+            (
+                "rise confirmed by level, too few recent weigh-ins",
+                with(&|s| s.regained = true, Insufficient),
+                Phase::Regain,
+            ),
+            (
+                "rise confirmed by level, last weeks unclear",
+                with(&|s| s.regained = true, Unclear),
+                Phase::Regain,
+            ),
+            (
+                "rise confirmed by level, levelled off again",
+                with(&|s| s.regained = true, Plateau),
+                Phase::RestartLoss,
+            ),
+            (
+                "rise confirmed by level, still losing now",
+                with(&|s| s.regained = true, Losing),
+                Phase::KeepGoing,
+            ),
             (
                 "regaining past target",
                 with(&|s| s.change_percent = Some(-8.0), Regaining),
@@ -1127,6 +1207,7 @@ mod tests {
                 lower: Some(-0.15),
                 upper: Some(0.15),
             }),
+            regain: None,
             implied: Some(Est {
                 value: 2000.0,
                 lower: Some(1850.0),
@@ -1256,6 +1337,34 @@ mod tests {
         let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
         assert!(g.options.is_empty());
         assert!(g.paragraphs[0].contains("too uncertain"));
+    }
+
+    #[test]
+    fn a_rise_confirmed_by_level_is_named_without_claiming_a_recent_slope() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.regain =
+            Some("about 5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg)".into());
+        f.balance = Some(Est {
+            value: 460.0,
+            lower: Some(200.0),
+            upper: Some(720.0),
+        });
+        let mut s = st(Insufficient);
+        s.regained = true;
+        let g = compose(decide(&s, &t), &s, &t, &f);
+        assert_eq!(g.phase, "regain");
+        let text = g.paragraphs.join(" ");
+        assert!(text.contains("5.3 kg above its lowest point"), "{text}");
+        assert!(text.contains("too few recent weigh-ins"), "{text}");
+        assert!(!text.contains("over the last four weeks"), "{text}");
+        // The amount that holds the weight is still checked at the lower bound.
+        assert_eq!(g.options[0].intake_cut_kcal, 450.0);
+        // And the sparse weigher is asked for the weigh-ins that would show the rise stopping.
+        assert!(g.closing[0].contains("times a week"), "{:?}", g.closing);
+        // A slope that rises says so, as before.
+        let g = compose(Phase::Regain, &st(Regaining), &t, &f);
+        assert!(g.paragraphs[0].contains("going up over the last four weeks"));
     }
 
     #[test]

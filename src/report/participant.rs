@@ -293,6 +293,24 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
             &fmt::rate_per_week(r, units),
         ));
     }
+    // A rise from the lowest trend weight, once the level test confirms it.
+    if let Some(t) = trend.filter(|t| guidance::regain_confirmed(t))
+        && let Some(rise) = t.regain_kg.value
+    {
+        let range = match (t.regain_kg.lower, t.regain_kg.upper) {
+            (Some(l), Some(u)) => format!(
+                " (95 % range {} to {} {})",
+                fmt::fixed(fmt::weight_value(l.max(0.0), units), 1),
+                fmt::fixed(fmt::weight_value(u, units), 1),
+                fmt::weight_unit(units)
+            ),
+            _ => String::new(),
+        };
+        summary.push(Kv::new(
+            "Back up from your lowest",
+            &format!("{}{range}", fmt::weight_change(rise, units)),
+        ));
+    }
     if let Some(o) = outcomes
         && let Some(bmi) = o.bmi_current_kg_m2
     {
@@ -498,27 +516,33 @@ fn headline(
             fmt::date(w)
         );
     }
-    match status {
+    let lead = match status {
         // "Going down by" carries the sign already: "by about 1.32 kg/week", not "−1.32".
         Status::Losing => format!(
-            "Your weight trend is going down, by about {} {}/week over the last four weeks.{since}",
+            "Your weight trend is going down, by about {} {}/week over the last four weeks.",
             fmt::fixed(fmt::weight_value(rate.unwrap_or(0.0), units).abs(), 2),
             fmt::weight_unit(units)
         ),
         Status::Plateau => {
-            format!("Your weight has held steady over the last four weeks (a plateau).{since}")
+            "Your weight has held steady over the last four weeks (a plateau).".to_string()
         }
         Status::Regaining => {
-            format!("Your weight trend has been rising over the last four weeks ({rate_s}).{since}")
+            format!("Your weight trend has been rising over the last four weeks ({rate_s}).")
         }
-        Status::Stable => format!("Your weight has been stable over the last four weeks.{since}"),
+        Status::Stable => "Your weight has been stable over the last four weeks.".to_string(),
         Status::Unclear => format!(
-            "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off.{since}"
+            "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off."
         ),
-        Status::InsufficientData => format!(
-            "There are too few recent weigh-ins to see how your weight moved over the last four weeks.{since}"
-        ),
-    }
+        Status::InsufficientData => "There are too few recent weigh-ins to see how your weight moved over the last four weeks.".to_string(),
+    };
+    // A rise from the lowest trend weight confirmed by level is named whatever the last four
+    // weeks' slope says (a sparse weigher's regain is otherwise invisible here).
+    let regain = trend
+        .filter(|_| status != Status::Regaining)
+        .and_then(|t| guidance::regain_words(t, units))
+        .map(|w| format!(" Your trend weight is now {w}."))
+        .unwrap_or_default();
+    format!("{lead}{regain}{since}")
 }
 
 /// The numbers behind a plateau reading, in plain words and the program's display units (the
@@ -979,6 +1003,51 @@ mod activity_unread_tests {
         );
         let h = headline(Some(&t), None, UnitSystem::UsCustomary, None);
         assert!(h.contains("by about 2.91 lb/week"), "{h}");
+    }
+
+    /// A sparse weigher 5.3 kg back up from their lowest trend weight (confirmed by the trend
+    /// module's level test) read only "too few recent weigh-ins" and "change since start".
+    #[test]
+    fn a_rise_confirmed_by_level_reaches_the_headline_and_the_summary() {
+        use cohortpress_metric_trend::view::RegainVerdict;
+        let mut t = TrendView {
+            status: Status::InsufficientData,
+            regain_verdict: Some(RegainVerdict::Regaining),
+            ..TrendView::default()
+        };
+        t.regain_kg = Interval {
+            value: Some(5.29),
+            lower: Some(3.82),
+            upper: Some(6.75),
+        };
+        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        assert_eq!(
+            h,
+            "There are too few recent weigh-ins to see how your weight moved over the last four \
+             weeks. Your trend weight is now about 5.3 kg above its lowest point so far (95 % \
+             range 3.8 to 6.8 kg)."
+        );
+        let v = BuiltinViews {
+            trend: Some(t.clone()),
+            energy: None,
+            adherence: None,
+            outcomes: None,
+        };
+        let row = summary(&v, UnitSystem::Metric)
+            .into_iter()
+            .find(|k| k.label == "Back up from your lowest")
+            .expect("a summary row for the rise");
+        assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
+        // Not confirmed by the level test: nothing is said of a rise.
+        t.regain_verdict = Some(RegainVerdict::NotRegaining);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        assert!(!h.contains("lowest point"), "{h}");
+        // A rising slope already says so; the level sentence is not repeated.
+        t.regain_verdict = Some(RegainVerdict::Regaining);
+        t.status = Status::Regaining;
+        t.slope_kg_per_week.value = Some(0.3);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        assert!(!h.contains("lowest point"), "{h}");
     }
 
     /// "Too few recent weigh-ins to see how your weight moved" stood above "Recent rate (last
