@@ -32,7 +32,8 @@ pub struct LineChart {
     pub alt_text: String,
 }
 
-/// One line (or dot series) of dated values.
+/// One line (or dot series) of dated values. A non-finite value is a gap: the line is not drawn
+/// across it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LineSeries {
     pub label: String,
@@ -49,7 +50,8 @@ pub enum LineStyle {
     Dots,
 }
 
-/// A shaded band between a lower and an upper value per date (an interval around a trend).
+/// A shaded band between a lower and an upper value per date (an interval around a trend). A
+/// non-finite bound is a gap: the band is not drawn across it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BandSeries {
     pub label: String,
@@ -616,25 +618,25 @@ fn draw_line_chart<DB: DrawingBackend>(
     }
 
     for (i, b) in c.bands.iter().enumerate() {
-        let mut pts: Vec<(NaiveDate, f64, f64)> = b
-            .points
-            .iter()
-            .copied()
-            .filter(|p| p.1.is_finite() && p.2.is_finite())
-            .collect();
-        if pts.len() < 2 {
-            continue;
-        }
-        pts.sort_by_key(|p| p.0);
-        let outline: Vec<(NaiveDate, f64)> = pts
-            .iter()
-            .map(|p| (p.0, p.2.max(p.1)))
-            .chain(pts.iter().rev().map(|p| (p.0, p.1.min(p.2))))
-            .collect();
+        let mut all = b.points.clone();
+        all.sort_by_key(|p| p.0);
         let (colour, alpha) = BAND_COLOURS[i % BAND_COLOURS.len()];
         let fill = colour.mix(alpha);
-        chart.draw_series(std::iter::once(Polygon::new(outline, fill.filled())))?;
-        if !b.label.is_empty() {
+        let mut drawn = false;
+        // A non-finite bound is a break: the band is drawn in pieces and never bridges it.
+        for pts in finite_runs(&all, |p| p.1.is_finite() && p.2.is_finite()) {
+            if pts.len() < 2 {
+                continue;
+            }
+            let outline: Vec<(NaiveDate, f64)> = pts
+                .iter()
+                .map(|p| (p.0, p.2.max(p.1)))
+                .chain(pts.iter().rev().map(|p| (p.0, p.1.min(p.2))))
+                .collect();
+            chart.draw_series(std::iter::once(Polygon::new(outline, fill.filled())))?;
+            drawn = true;
+        }
+        if drawn && !b.label.is_empty() {
             swatches.push((b.label.clone(), Swatch::Fill(fill)));
         }
     }
@@ -656,32 +658,31 @@ fn draw_line_chart<DB: DrawingBackend>(
 
     for (i, l) in c.lines.iter().enumerate() {
         let colour = LINE_COLOURS[i % LINE_COLOURS.len()];
-        let mut pts: Vec<(NaiveDate, f64)> = l
-            .points
-            .iter()
-            .copied()
-            .filter(|p| p.1.is_finite())
-            .collect();
-        pts.sort_by_key(|p| p.0);
+        let mut all = l.points.clone();
+        all.sort_by_key(|p| p.0);
         let line_style = colour.stroke_width(2);
-        match l.style {
-            LineStyle::Dots => chart.draw_series(
-                pts.iter()
-                    .map(|&p| Circle::new(p, 3, colour.mix(0.8).filled())),
-            )?,
-            _ if pts.len() == 1 => {
-                chart.draw_series(pts.iter().map(|&p| Circle::new(p, 3, colour.filled())))?
-            }
-            LineStyle::Solid => {
-                chart.draw_series(PlotLine::new(pts.iter().copied(), line_style))?
-            }
-            LineStyle::Dashed => chart.draw_series(DashedLineSeries::new(
-                pts.iter().copied(),
-                7u32,
-                5u32,
-                line_style,
-            ))?,
-        };
+        // A non-finite value is a break: the line is drawn in pieces and never bridges it
+        // (a week withheld from a group chart must not be drawn as an interpolated value).
+        for pts in finite_runs(&all, |p| p.1.is_finite()) {
+            match l.style {
+                LineStyle::Dots => chart.draw_series(
+                    pts.iter()
+                        .map(|&p| Circle::new(p, 3, colour.mix(0.8).filled())),
+                )?,
+                _ if pts.len() == 1 => {
+                    chart.draw_series(pts.iter().map(|&p| Circle::new(p, 3, colour.filled())))?
+                }
+                LineStyle::Solid => {
+                    chart.draw_series(PlotLine::new(pts.iter().copied(), line_style))?
+                }
+                LineStyle::Dashed => chart.draw_series(DashedLineSeries::new(
+                    pts.iter().copied(),
+                    7u32,
+                    5u32,
+                    line_style,
+                ))?,
+            };
+        }
         if !l.label.is_empty() {
             swatches.push((
                 l.label.clone(),
@@ -697,6 +698,24 @@ fn draw_line_chart<DB: DrawingBackend>(
         Some(strip) => draw_legend_strip(&strip, &swatches),
         None => Ok(()),
     }
+}
+
+/// The runs of consecutive points that pass `ok`, in order; a point that fails it ends a run
+/// (a gap in a series: nothing is drawn across it).
+fn finite_runs<T: Copy>(pts: &[T], ok: impl Fn(&T) -> bool) -> Vec<Vec<T>> {
+    let mut runs: Vec<Vec<T>> = Vec::new();
+    let mut cur: Vec<T> = Vec::new();
+    for p in pts {
+        if ok(p) {
+            cur.push(*p);
+        } else if !cur.is_empty() {
+            runs.push(std::mem::take(&mut cur));
+        }
+    }
+    if !cur.is_empty() {
+        runs.push(cur);
+    }
+    runs
 }
 
 /// The mark shown beside a legend entry, as the series draws it.
@@ -973,6 +992,64 @@ pub(crate) mod tests {
             }],
             alt_text: "Weight fell from 92 to 87.5 kg over 60 days & a plateau in March".into(),
         })
+    }
+
+    /// A group chart drew its mean line straight across weeks whose mean was withheld, as if
+    /// they were data: a non-finite value is now a gap in the line and in its band.
+    #[test]
+    fn a_non_finite_value_breaks_the_line_and_the_band() {
+        let chart = |gap: bool| {
+            let v = |w: u32, x: f64| {
+                if gap && (3..=4).contains(&w) {
+                    f64::NAN
+                } else {
+                    x
+                }
+            };
+            let days: Vec<(NaiveDate, f64)> = (1..=6)
+                .map(|w| {
+                    (
+                        d(1, 1) + Duration::days(7 * i64::from(w)),
+                        -0.5 * f64::from(w),
+                    )
+                })
+                .collect();
+            Chart::Line(LineChart {
+                title: "Mean change".into(),
+                y_label: "%".into(),
+                lines: vec![LineSeries {
+                    label: "mean".into(),
+                    points: days
+                        .iter()
+                        .zip(1..)
+                        .map(|(p, w)| (p.0, v(w, p.1)))
+                        .collect(),
+                    style: LineStyle::Solid,
+                }],
+                bands: vec![BandSeries {
+                    label: "95 % CI".into(),
+                    points: days
+                        .iter()
+                        .zip(1..)
+                        .map(|(p, w)| (p.0, v(w, p.1 - 0.3), v(w, p.1 + 0.3)))
+                        .collect(),
+                }],
+                spans: vec![],
+                hlines: vec![],
+                alt_text: String::new(),
+            })
+        };
+        let count = |svg: &str, tag: &str| svg.matches(tag).count();
+        let (whole, broken) = (
+            to_svg(&chart(false), 720, 340),
+            to_svg(&chart(true), 720, 340),
+        );
+        assert_eq!(count(&broken, "<polyline"), count(&whole, "<polyline") + 1);
+        assert_eq!(count(&broken, "<polygon"), count(&whole, "<polygon") + 1);
+        assert_eq!(
+            finite_runs(&[1.0, f64::NAN, 2.0, 3.0, f64::NAN], |x| x.is_finite()).len(),
+            2
+        );
     }
 
     #[test]

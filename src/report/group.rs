@@ -495,18 +495,19 @@ fn fill(
         });
     }
 
-    // Mean trajectory by week since enrolment (weeks with a shown mean only).
+    // Mean trajectory by week since enrolment. A week whose mean is withheld is a gap in the
+    // line and its band (NaN), so the chart never draws an interpolated value across it.
     let start = plan.program.info.start;
     let pts: Vec<_> = st
         .trajectory
         .iter()
-        .filter_map(|wp| {
-            let m = *wp.mean_percent.value()?;
+        .map(|wp| {
+            let m = wp.mean_percent.value().copied().unwrap_or(f64::NAN);
             let d = start + chrono::Duration::days(7 * i64::from(wp.week + 1));
-            Some((d, m, wp.ci.value().copied()))
+            (d, m, wp.ci.value().copied())
         })
         .collect();
-    if pts.len() >= 2 {
+    if pts.iter().filter(|p| p.1.is_finite()).count() >= 2 {
         let name = format!("{anchor}-trajectory");
         let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band; weeks with too few participants are left out. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
         let table = TableView {
@@ -537,7 +538,10 @@ fn fill(
                     label: "95 % CI".into(),
                     points: pts
                         .iter()
-                        .filter_map(|(d, _, ci)| ci.map(|c| (*d, c.lo, c.hi)))
+                        .map(|(d, m, ci)| match ci {
+                            Some(c) if m.is_finite() => (*d, c.lo, c.hi),
+                            _ => (*d, f64::NAN, f64::NAN),
+                        })
                         .collect(),
                 }],
                 spans: vec![],
