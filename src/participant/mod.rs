@@ -58,6 +58,8 @@ pub struct LoadedParticipant {
     pub notes: Vec<table::Note>,
     /// Files read.
     pub files: Vec<InputFile>,
+    /// Line of `enrolled` in profile.yaml, for messages about the enrolment date.
+    pub enrolled_line: Option<u64>,
 }
 
 impl LoadedParticipant {
@@ -363,6 +365,7 @@ pub fn load_opened(
                 diagnostics: diags,
                 notes: Vec::new(),
                 files,
+                enrolled_line: None,
             };
         }
     };
@@ -415,6 +418,7 @@ pub fn load_opened(
     }
 
     let pctx = FileCtx::new(id, rel(PROFILE_FILE));
+    let mut enrolled_line = None;
     let profile = match read_input(
         &handle,
         PROFILE_FILE,
@@ -435,6 +439,7 @@ pub fn load_opened(
         }
         Some(Err(())) => None,
         Some(Ok(text)) => {
+            enrolled_line = crate::program::load::key_line(&text, "enrolled");
             profile::parse_profile(&text, id, &program.info.targets, &pctx, &mut diags)
         }
     };
@@ -497,6 +502,7 @@ pub fn load_opened(
         diagnostics: diags,
         notes,
         files,
+        enrolled_line,
     }
 }
 

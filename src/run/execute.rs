@@ -476,7 +476,34 @@ fn process_participant(
         tidy: None,
         followup: None,
     };
-    if let Some(data) = loaded.data {
+    // Someone enrolled after the period's end was not in the program then: no report for it,
+    // and not counted in its group figures (a re-issued earlier month would otherwise count
+    // later joiners as enrolled without a start). A mistyped date is the other reading, so the
+    // message says how to correct it.
+    let data = loaded.data.filter(|d| {
+        if d.profile.enrolled <= plan.period.to {
+            return true;
+        }
+        let mut diag = Diagnostic::warning(
+            format!("{}/{}/profile.yaml", participant::PARTICIPANTS_DIR, loaded.id),
+            format!(
+                "enrolled on {}, after this period ({} to {}): no report for this period, and not counted in its group figures",
+                d.profile.enrolled, plan.period.from, plan.period.to
+            ),
+        )
+        .participant(&loaded.id)
+        .field("enrolled")
+        .expected(format!("an enrolment date on or before {}", plan.period.to))
+        .found(d.profile.enrolled.to_string())
+        .hint("if the date is wrong, correct `enrolled` in profile.yaml; otherwise the participant is reported from the month they enrolled");
+        if let Some(line) = loaded.enrolled_line {
+            diag = diag.at(line, None);
+        }
+        tracing::warn!("{}", diag.to_string().replace('\n', " |"));
+        rec.diagnostics.push(DiagRecord::from_diagnostic(&diag));
+        false
+    });
+    if let Some(data) = data {
         let results: ModuleResults =
             plan.modules
                 .run(&plan.program.info, plan.period, plan.as_of, &data);

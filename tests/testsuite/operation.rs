@@ -563,3 +563,64 @@ fn a_period_still_under_way_is_reported_up_to_the_as_of_date() {
         "the report names the days it covers"
     );
 }
+
+/// Someone enrolled after the period's end (a re-issued earlier month, or a mistyped date) was
+/// reported for that month and counted in its group figures as enrolled without a start. Now
+/// they get no report for the period, are left out of its group rows, and the data-quality list
+/// says why at the `enrolled` line of their profile.
+#[test]
+fn a_participant_enrolled_after_the_period_is_not_reported_for_it() {
+    let t = ProgramTest::fixture("report-small");
+    let profile = t.dir.join("participants/SG-018/profile.yaml");
+    let text = std::fs::read_to_string(&profile).unwrap();
+    std::fs::write(
+        &profile,
+        text.replace("enrolled: 2026-04-01", "enrolled: 2026-06-10"),
+    )
+    .unwrap();
+    let out = t.dir.parent().unwrap().join("out-may");
+    let o = t.run(&[
+        "run",
+        ".",
+        "--period",
+        "2026-05",
+        "--as-of",
+        AS_OF,
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert_eq!(o.code, cohortpress::exit_code::WARNINGS, "{o:?}");
+    assert!(!out.join("participants/SG-018.html").exists());
+    assert!(!out.join("participants/SG-018.pdf").exists());
+    assert!(out.join("participants/SG-003.html").exists());
+    assert!(
+        o.stderr
+            .contains("enrolled on 2026-06-10, after this period (2026-05-01 to 2026-05-31)"),
+        "{o:?}"
+    );
+    let dq = std::fs::read_to_string(out.join("metrics/data-quality.csv")).unwrap();
+    let row = dq
+        .lines()
+        .find(|l| l.contains("after this period"))
+        .expect("a data-quality row");
+    assert!(
+        row.starts_with("warning,SG-018,participants/SG-018/profile.yaml,6,,enrolled,"),
+        "{row}"
+    );
+    let tidy = std::fs::read_to_string(out.join("metrics/participants.csv")).unwrap();
+    assert!(!tidy.contains("SG-018"), "{tidy}");
+    // From the month they enrolled, they are reported.
+    let out = t.dir.parent().unwrap().join("out-june");
+    let o = t.run(&[
+        "run",
+        ".",
+        "--period",
+        "2026-06",
+        "--as-of",
+        AS_OF,
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert!(!o.stderr.contains("after this period"), "{o:?}");
+    assert!(out.join("participants/SG-018.html").exists());
+}
