@@ -393,12 +393,11 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
             .labs
             .iter()
             .map(|l| {
-                let value = format!("{} {}", num_text(Some(l.value)), l.unit);
-                let alt = format!(
-                    "{} {}",
-                    num_text(l.value_alt),
-                    l.unit_alt.as_deref().unwrap_or_default()
-                );
+                let value = format!("{} {}", lab_number(l.value, &l.unit), l.unit);
+                let alt = match (l.value_alt, l.unit_alt.as_deref()) {
+                    (Some(v), Some(u)) => format!("{} {u}", lab_number(v, u)),
+                    _ => String::new(),
+                };
                 vec![
                     fmt::date(l.date),
                     l.test.label().to_string(),
@@ -409,6 +408,17 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
             })
             .collect(),
     })
+}
+
+/// A lab value with the decimals its unit is usually written with, so a column never mixes
+/// `5 %` and `5.1 %`: HbA1c in % and glucose in mmol/L to one decimal, mg/dL, mmol/mol and
+/// mmHg whole, lengths to one decimal (common practice in laboratory reports).
+fn lab_number(v: f64, unit: &str) -> String {
+    let decimals = match unit {
+        "mg/dL" | "mmol/mol" | "mmHg" => 0,
+        _ => 1,
+    };
+    fmt::fixed(v, decimals)
 }
 
 /// Flags of every module: clinical first, then notices, then information.
@@ -986,6 +996,17 @@ mod activity_unread_tests {
             .unwrap()
             .value
             .clone()
+    }
+
+    /// The lab table printed `5 %` beside `5.1 %` and `93.7 mg/dL` beside `31.1 mmol/mol`.
+    #[test]
+    fn lab_values_keep_their_units_usual_decimals() {
+        assert_eq!(lab_number(5.0, "%"), "5.0");
+        assert_eq!(lab_number(5.14, "%"), "5.1");
+        assert_eq!(lab_number(93.7, "mg/dL"), "94");
+        assert_eq!(lab_number(31.1, "mmol/mol"), "31");
+        assert_eq!(lab_number(5.2, "mmol/L"), "5.2");
+        assert_eq!(lab_number(128.0, "mmHg"), "128");
     }
 
     /// "Going down, by about −1.32 kg/week" said the sign twice.
