@@ -722,9 +722,14 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             fmt::kcal(floor)
         ));
     } else {
-        g.paragraphs.push(
-            "The rise is small next to the uncertainty of the estimate, so this report suggests no particular amount. Going back to the habits that worked for you earlier — regular weigh-ins, a food log, your usual activity — is a good first step.".into(),
-        );
+        let why = if f.balance.is_some() {
+            "The rise is small next to the uncertainty of the estimate"
+        } else {
+            "Your recent records do not give a reliable estimate of how much you eat now"
+        };
+        g.paragraphs.push(format!(
+            "{why}, so this report suggests no particular amount. Going back to the habits that worked for you earlier — regular weigh-ins, a food log, your usual activity — is a good first step."
+        ));
     }
     if state.status == TrendStatus::Insufficient {
         g.closing.push(format!(
@@ -1362,6 +1367,13 @@ mod tests {
         assert_eq!(g.options[0].intake_cut_kcal, 450.0);
         // And the sparse weigher is asked for the weigh-ins that would show the rise stopping.
         assert!(g.closing[0].contains("times a week"), "{:?}", g.closing);
+        // Without an energy balance no amount is offered, and the rise is not called small.
+        f.balance = None;
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert!(g.options.is_empty());
+        let text = g.paragraphs.join(" ");
+        assert!(!text.contains("rise is small"), "{text}");
+        assert!(text.contains("do not give a reliable estimate"), "{text}");
         // A slope that rises says so, as before.
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.paragraphs[0].contains("going up over the last four weeks"));
