@@ -109,7 +109,20 @@ pub fn parse_profile(
     let at = |key: &str, d: Diagnostic| {
         let d = d.field(key);
         match key_line(text, key) {
-            Some(l) => d.at(l, None),
+            // The column of the value after `key:` (1-based, in characters), when one is
+            // written on the key's line.
+            Some(l) => {
+                let col = text.lines().nth(l as usize - 1).and_then(|line| {
+                    let (_, after) = line.split_once(':')?;
+                    let value = after.trim_start();
+                    (!value.is_empty()).then(|| {
+                        (line.chars().count() - after.chars().count()
+                            + (after.chars().count() - value.chars().count())
+                            + 1) as u64
+                    })
+                });
+                d.at(l, col)
+            }
             None => d,
         }
     };
@@ -426,6 +439,27 @@ flags: [glucose-lowering-medication]
         let (p, d) = parse(&GOOD.replace("5 ft 6 in", "16.8 cm"));
         assert!(p.is_none());
         assert!(d[0].message.contains("implausible height"), "{}", d[0]);
+    }
+
+    /// `1e400 cm` was reported as "unknown unit `e`", at a line without a column.
+    #[test]
+    fn an_out_of_range_height_is_named_with_line_and_column() {
+        let (p, d) = parse(&GOOD.replace("5 ft 6 in", "1e400 cm"));
+        assert!(p.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(
+            d[0].message,
+            "unreadable height: `1e400` is out of range (not a finite number)"
+        );
+        assert_eq!((d[0].line, d[0].column), (Some(5), Some(9)));
+        assert_eq!(d[0].found.as_deref(), Some("`1e400 cm`"));
+        assert_eq!(d[0].expected.as_deref(), Some("a height with its unit"));
+        let (_, d) = parse(&GOOD.replace("5 ft 6 in", "NaN cm"));
+        assert!(
+            d[0].message.ends_with("`nan` is not a finite number"),
+            "{}",
+            d[0]
+        );
     }
 
     #[test]
