@@ -313,7 +313,7 @@ impl MetricModule for EnergyModule {
                 "unexplained_weight_change",
                 "flag",
                 "",
-                "Weight fell faster than a zero intake explains",
+                "Weight changed faster than energy balance explains",
             ),
         ];
         ModuleSpec {
