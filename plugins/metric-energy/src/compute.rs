@@ -7,8 +7,10 @@
 //!   weigh-in); age at enrolment; body fat from the profile (`measured`) or Jackson et al. 2002
 //!   (`jackson_2002`); RMR₀ by the chosen equation; maintenance intake EI₀ = RMR₀ × `base_pal`.
 //!   Logged exercise is treated as *added* by the program on top of `base_pal`.
-//! - **Expenditure** (static): TDEE = RMR(current weight, current age) × `base_pal` + net
-//!   activity (MET − 1)·kg·h per day. Net, because `base_pal` already counts resting energy for
+//! - **Expenditure** (static): TDEE = RMR(current weight, current age) × PAL + net
+//!   activity (MET − 1)·kg·h per day, PAL the person's activity level after the food logs and
+//!   the weight trend (the prior `base_pal` without them); the weekly table's expenditure is
+//!   this, week by week. Net, because the PAL already counts resting energy for
 //!   those minutes.
 //! - **Implied intake** (Hall & Chow 2011): EI = EI₀ + ε·(BW − BW₀) + ρ·dBW/dt + A/(1 − β),
 //!   with BW the mean trend level and dBW/dt the mean trend slope over the last `window_days` of
@@ -572,8 +574,7 @@ pub(crate) fn run(
     push_forecast(&mut out, &p, &start, fc);
 
     // After a withdrawal there are no habits to estimate: the weekly table stops there.
-    out.tables
-        .push(weekly_table(&p, &s, enrolled, withdrew_cut));
+    out.tables.push(weekly_table(&p, enrolled, withdrew_cut));
     out.tables
         .push(options_table(&p, &s, cur.bw, cur.slope, cur.implied));
     out.tables.push(plateau_table(&p, &s, enrolled));
@@ -1204,7 +1205,7 @@ fn push_empty(out: &mut ModuleOutput, s: &Settings) {
 
 /// One row per week from enrolment to the end of the period (weeks start on the enrolment
 /// weekday; the last week may be short).
-fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate) -> Table {
+fn weekly_table(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate) -> Table {
     let mut t = empty_table::<WeekEnergyRow>(names::WEEKLY_ENERGY, WEEKLY_ENERGY_LABEL);
     // Monday-based weeks, like the adherence module's, so a report shows one week grid; the
     // first week starts at enrolment and the last ends at the period end.
@@ -1217,7 +1218,10 @@ fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate
         let bw = mean_band(&p.trend.level, ws, we)
             .map(|b| b.value)
             .or_else(|| p.weight_on(we));
-        let expenditure = bw.map(|w| p.rmr_at(w, ws) * s.base_pal + p.activity_kcal(ws, we, w));
+        // The person's activity level (after the logs and the trend), as the summary's
+        // expenditure uses: with the prior `base_pal` the weeks showed a different energy use
+        // from the summary's for the same days.
+        let expenditure = bw.map(|w| p.rmr_at(w, ws) * p.model.pal + p.activity_kcal(ws, we, w));
         let (logged, _) = p.logged(ws, we);
         let implied = match (bw, mean_band(&p.trend.slope, ws, we)) {
             // Below zero or above what a person can take in, the week's change is not energy

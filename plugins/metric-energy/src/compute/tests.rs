@@ -1012,3 +1012,52 @@ fn first_month_underreporting_has_its_bounds_in_order() {
         "{v} vs {implied}"
     );
 }
+
+/// The weekly table's energy use was resting × the prior `base_pal` (1.6) + activity while the
+/// summary's used the person's own activity level: on one page the two disagreed for the same
+/// days (sample SG-010, September 2026: 2,155 in the summary, about 2,400 each week). The weeks
+/// now use the person's level: at a steady weight without activity, each full week's energy use
+/// is the summary's resting energy × `pal_estimate`.
+#[test]
+fn weekly_energy_use_uses_the_persons_activity_level() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-28"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let weights = vec![80.0; n];
+    let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
+    data.weights = (0..n)
+        .map(|i| WeighIn {
+            date: day_after(enrolled, i as u64),
+            time: None,
+            weight: Mass::from_kg(weights[i]),
+            source: None,
+        })
+        .collect();
+    // Steady weight on logs of 1,300 kcal/d: a lower activity level than the prior 1.6.
+    data.intake = (0..n as u64)
+        .map(|i| IntakeDay {
+            date: day_after(enrolled, i),
+            kcal: 1300.0,
+            carbs_g: None,
+            fat_g: None,
+            protein_g: None,
+            free_sugars_g: None,
+        })
+        .collect();
+    let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, &weights, 0.3, 0.02, &[]),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let pal = out.scalar("pal_estimate").unwrap();
+    assert!((pal - 1.6).abs() > 0.05, "pal {pal}");
+    let rmr = out.scalar("rmr_kcal_per_day").unwrap();
+    let weekly = out.table("weekly_energy").unwrap();
+    let last = weekly.rows.len() - 1;
+    let e = cell_num(weekly, last, "expenditure_kcal_per_day").unwrap();
+    assert!((e - rmr * pal).abs() < 1.0, "{e} vs {rmr} × {pal}");
+}
