@@ -1140,3 +1140,66 @@ fn an_element_outside_the_pdf_subset_fails_the_run_naming_template_and_element()
     assert!(out.stderr.contains("<h4>"), "{}", out.stderr);
     assert!(!prog.dir.join("reports/participants").exists());
 }
+
+/// A woman of 152 cm at BMI 18.7 still losing 0.7 kg a week (no other flag) was told "Holding
+/// your new weight … If you would like to stop losing, eating about … more than now is a safe
+/// first step", with no caution. Both formats now hold every suggestion and ask her to see a
+/// licensed clinician, with no wording that reads as encouragement to go on losing.
+#[test]
+fn a_low_bmi_still_losing_is_sent_to_a_clinician_in_html_and_pdf() {
+    let prog = ProgramTest::fixture("report-small");
+    let p = prog.dir.join("participants/SG-007");
+    let h2 = (60.0 * 2.54 / 100.0_f64).powi(2);
+    let end = 18.7 * h2;
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    let days = 182;
+    let mut w = String::from("date,weight,unit\n");
+    for i in (0..=days).step_by(2) {
+        let kg = end + 0.7 * f64::from(days - i) / 7.0 + if i % 4 == 0 { 0.2 } else { -0.2 };
+        let day = start + chrono::Duration::days(i64::from(i));
+        w.push_str(&format!("{day},{kg:.1},kg\n"));
+    }
+    std::fs::write(p.join("weights.csv"), w).unwrap();
+    // Logged intake above the floor, so no intake flag stands in for the BMI caution.
+    let mut intake = String::from("date,kcal\n");
+    for i in (0..=days).step_by(3) {
+        let day = start + chrono::Duration::days(i64::from(i));
+        intake.push_str(&format!("{day},1450\n"));
+    }
+    std::fs::write(p.join("intake.csv"), intake).unwrap();
+    let out = prog.run(&[
+        "run",
+        "{dir}",
+        "--only",
+        "SG-007",
+        "--period",
+        "2026-09",
+        "--as-of",
+        "2026-10-01",
+        "--out",
+        "{dir}/o",
+    ]);
+    assert!(out.code <= 1, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-007.html")).unwrap();
+    let mut texts = vec![("html", html)];
+    if let Some(pdf) = pdftotext(&prog.dir.join("o/participants/SG-007.pdf")) {
+        texts.push(("pdf", pdf.split_whitespace().collect::<Vec<_>>().join(" ")));
+    }
+    for (what, t) in &texts {
+        assert!(t.contains("Current BMI is about 18.7"), "{what}: {t:.4000}");
+        assert!(t.contains("still going down"), "{what}");
+        assert!(
+            t.contains("not advised without a licensed clinician"),
+            "{what}"
+        );
+        assert!(t.contains("Before any change"), "{what}");
+        for encouraging in [
+            "Holding your new weight",
+            "If you would like to stop losing",
+            "keep going",
+            "safe first step",
+        ] {
+            assert!(!t.contains(encouraging), "{what}: `{encouraging}`");
+        }
+    }
+}
