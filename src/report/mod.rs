@@ -190,11 +190,15 @@ const NARROW_PLOT_H: u32 = 300;
 fn svg(name: &str, c: &Chart) -> String {
     let mut esc = String::new();
     handlebars::html_escape(name).clone_into(&mut esc);
-    format!(
+    // The charts' labels (site and group names among them) are text from inputs too: the SVG
+    // holds no invisible direction or control character (`render::neutralise`), whatever
+    // plotters' own escaping keeps.
+    let html = format!(
         "<div class=\"chart\" data-chart=\"{esc}\"><div class=\"chart-wide\">{}</div><div class=\"chart-narrow\">{}</div></div>",
         chart::to_svg(c, CHART_W, CHART_H),
         chart::to_svg_narrow(c, NARROW_W, NARROW_PLOT_H)
-    )
+    );
+    crate::render::neutralise(&html).into_owned()
 }
 
 /// The drawn charts by name, as SVG for the template's `{{chart}}` helper.

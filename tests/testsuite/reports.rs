@@ -594,7 +594,7 @@ fn a_script_tag_as_a_name_is_escaped_in_html_and_plain_text_in_pdf() {
     let name = "<script>alert(1)</script>";
     let html = run.read("participants/SG-900.html");
     assert_self_contained("SG-900.html", &html);
-    assert!(html.contains("<h1>&lt;script&gt;alert(1)&lt;/script&gt;</h1>"));
+    assert!(html.contains("<h1><bdi>&lt;script&gt;alert(1)&lt;/script&gt;</bdi></h1>"));
     assert!(html.contains("<title>&lt;script&gt;alert(1)&lt;/script&gt; · "));
     assert!(!html.contains(name));
     let pages = pdf_pages(&run.bytes("participants/SG-900.pdf"));
@@ -1201,5 +1201,48 @@ fn a_low_bmi_still_losing_is_sent_to_a_clinician_in_html_and_pdf() {
         ] {
             assert!(!t.contains(encouraging), "{what}: `{encouraging}`");
         }
+    }
+}
+
+/// A name with a right-to-left override (U+202E), an isolate, a direction mark and an escape
+/// sequence went into the HTML and PDF as written: "Dana\u{202e}exe.txt" shows as "Danatxt.exe",
+/// and the override reorders the text after it. Each is dropped where text enters the report
+/// (the template escaping, the charts, the PDF), and the name is isolated in `<bdi>`.
+#[test]
+fn invisible_direction_and_control_characters_in_names_are_neutralised() {
+    let prog = ProgramTest::fixture("report-small");
+    let p = prog.dir.join("participants/SG-900/profile.yaml");
+    let text = std::fs::read_to_string(&p).unwrap();
+    let text = text
+        .replace(
+            "name: \"<script>alert(1)</script>\"",
+            "name: \"Dana\\u202Eexe.txt\\u2066 Okafor\\u200F\\e[2J\\u0085\"",
+        )
+        .replace("site: North Office", "site: \"North\\u202B Office\"");
+    std::fs::write(&p, text).unwrap();
+    let out = prog.run(&[
+        "run", "{dir}", "--only", "SG-900", "--as-of", AS_OF, "--out", "{dir}/o",
+    ]);
+    assert!(out.code <= 1, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-900.html")).unwrap();
+    let bad = |t: &str| {
+        t.chars()
+            .find(|&c| {
+                matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}' | '\u{200e}' | '\u{200f}')
+                    || (c.is_control() && !matches!(c, '\t' | '\n' | '\r'))
+            })
+            .map(|c| format!("U+{:04X}", c as u32))
+    };
+    assert_eq!(bad(&html), None);
+    assert!(
+        html.contains("<h1><bdi>Danaexe.txt Okafor[2J</bdi></h1>"),
+        "{}",
+        &html[html.find("<h1>").unwrap()..][..120]
+    );
+    assert!(html.contains("<title>Danaexe.txt Okafor[2J · "));
+    assert!(html.contains("North Office"));
+    if let Some(pdf) = pdftotext(&prog.dir.join("o/participants/SG-900.pdf")) {
+        assert_eq!(bad(&pdf.replace('\x0c', "")), None);
+        assert!(pdf.contains("Danaexe.txt Okafor[2J"), "{pdf:.300}");
     }
 }
