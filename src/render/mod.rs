@@ -43,6 +43,27 @@ pub fn neutralise(s: &str) -> std::borrow::Cow<'_, str> {
     }
 }
 
+/// The characters of `text` the PDF's embedded faces (DejaVu Sans, regular and bold) have no
+/// glyph for, each once in order of appearance: a PDF would show them as empty boxes, and a
+/// reader or screen reader gets nothing from them (most CJK, Thai, Devanagari, emoji).
+/// White space and control characters are not counted (they are not drawn).
+pub fn pdf_unshowable(text: &str) -> Vec<char> {
+    let (regular, bold) = (
+        font::face(font::Face::Regular),
+        font::face(font::Face::Bold),
+    );
+    let mut out: Vec<char> = Vec::new();
+    for c in text.chars() {
+        if c.is_whitespace() || c.is_control() || is_invisible_control(c) || out.contains(&c) {
+            continue;
+        }
+        if regular.glyph(c) == 0 || bold.glyph(c) == 0 {
+            out.push(c);
+        }
+    }
+    out
+}
+
 #[cfg(test)]
 mod neutralise_tests {
     use super::*;
@@ -58,6 +79,10 @@ mod neutralise_tests {
         ] {
             assert_eq!(neutralise(&format!("a{c}b")), "ab", "U+{:04X}", c as u32);
         }
+        // What the PDF font cannot show: CJK and Thai, not Latin, Greek, Cyrillic or Vietnamese.
+        assert_eq!(pdf_unshowable("王小明 Wang 王"), vec!['王', '小', '明']);
+        assert_eq!(pdf_unshowable("สมชาย"), "สมชาย".chars().collect::<Vec<_>>());
+        assert!(pdf_unshowable("Łucja Nguyễn-Øberg Σοφία Ольга").is_empty());
         // Letters of every script, joiners and white space stay.
         for s in [
             "Łucja Nguyễn-Øberg",

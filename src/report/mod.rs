@@ -209,6 +209,13 @@ fn svg_map(charts: &BTreeMap<String, Chart>) -> serde_json::Map<String, serde_js
         .collect()
 }
 
+/// The characters of the participant's name the PDF's embedded font cannot show, when there are
+/// any: the PDF then names them by their id ([`render_participant`]), and the run warns.
+pub fn pdf_name_fallback(report: &ParticipantReport) -> Option<Vec<char>> {
+    let missing = crate::render::pdf_unshowable(&report.ctx.participant.display_name);
+    (!missing.is_empty()).then_some(missing)
+}
+
 /// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes). The PDF
 /// is laid out from the HTML, so both always say the same.
 pub fn render_participant(
@@ -224,8 +231,22 @@ pub fn render_participant(
     if let Some(c) = &report.activity_chart {
         charts.insert("activity".into(), c.clone());
     }
-    let html = templates.render("participant.html", &report.ctx, svg_map(&charts))?;
+    let svgs = svg_map(&charts);
+    let html = templates.render("participant.html", &report.ctx, svgs.clone())?;
     let c = &report.ctx;
+    // A name the PDF's font cannot show (most CJK, Thai …) would print as empty boxes, or
+    // nothing a reader can copy: the PDF names the participant by their id instead (no
+    // transliteration: a guessed spelling of someone's name is worse than none). The HTML,
+    // which the reader's own fonts show, keeps the name; the run log says so
+    // (`pdf_name_fallback`).
+    let pdf_html = match pdf_name_fallback(report) {
+        Some(_) if formats.contains(&Format::Pdf) => {
+            let mut ctx = report.ctx.clone();
+            ctx.participant.display_name = format!("Participant {}", c.participant.id);
+            templates.render("participant.html", &ctx, svgs)?
+        }
+        _ => html.clone(),
+    };
     let mut out = Vec::new();
     for f in formats {
         match f {
@@ -233,7 +254,7 @@ pub fn render_participant(
             Format::Pdf => out.push((
                 "pdf",
                 from_html::pdf(
-                    &html,
+                    &pdf_html,
                     &templates.source_of("participant.html"),
                     &charts,
                     from_html::Frame {

@@ -1246,3 +1246,52 @@ fn invisible_direction_and_control_characters_in_names_are_neutralised() {
         assert!(pdf.contains("Danaexe.txt Okafor[2J"), "{pdf:.300}");
     }
 }
+
+/// A name in a script the PDF's font lacks ("王小明") printed as three empty boxes, and a
+/// reader copying the text got nothing. The PDF now names the participant by id, the HTML keeps
+/// the name, and the run log says which characters and which file.
+#[test]
+fn a_name_the_pdf_font_cannot_show_is_replaced_by_the_id_with_a_warning() {
+    let prog = ProgramTest::fixture("report-small");
+    let p = prog.dir.join("participants/SG-900/profile.yaml");
+    let text = std::fs::read_to_string(&p).unwrap();
+    std::fs::write(
+        &p,
+        text.replace("name: \"<script>alert(1)</script>\"", "name: \"王小明\""),
+    )
+    .unwrap();
+    let out = prog.run(&[
+        "run", "{dir}", "--only", "SG-900", "SG-007", "--as-of", AS_OF, "--out", "{dir}/o",
+    ]);
+    assert!(out.code <= 1, "{}", out.stderr);
+    assert!(
+        out.stderr.contains(
+            "SG-900: participants/SG-900/profile.yaml: the PDF's font has no glyph for `王` U+738B, `小` U+5C0F, `明` U+660E"
+        ),
+        "{}",
+        out.stderr
+    );
+    // Only the participant whose name cannot be shown.
+    assert!(
+        !out.stderr.contains("SG-007: participants"),
+        "{}",
+        out.stderr
+    );
+    let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-900.html")).unwrap();
+    assert!(html.contains("<h1><bdi>王小明</bdi></h1>"));
+    let pdf = std::fs::read(prog.dir.join("o/participants/SG-900.pdf")).unwrap();
+    let pages = pdf_pages(&pdf);
+    assert!(
+        pages[0].starts_with("Participant SG-900"),
+        "{}",
+        &pages[0][..100]
+    );
+    assert!(!pages.concat().contains('王'));
+    // A name the font shows is kept in the PDF.
+    let pages = pdf_pages(&std::fs::read(prog.dir.join("o/participants/SG-007.pdf")).unwrap());
+    assert!(
+        pages[0].starts_with("Mei-Ling Castellanos"),
+        "{}",
+        &pages[0][..100]
+    );
+}
