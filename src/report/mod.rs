@@ -216,6 +216,16 @@ pub fn pdf_name_fallback(report: &ParticipantReport) -> Option<Vec<char>> {
     (!missing.is_empty()).then_some(missing)
 }
 
+/// The characters the PDF's embedded font cannot show in the rest of the participant's report
+/// (a site, team or activity name, a note from an external module …): they print as empty
+/// boxes in the PDF, and the run warns. The name is left out (see [`pdf_name_fallback`]).
+pub fn pdf_unshowable_text(report: &ParticipantReport) -> Vec<char> {
+    let mut ctx = report.ctx.clone();
+    ctx.participant.display_name.clear();
+    // Every text the template can print is a string of the context; its keys are ASCII.
+    serde_json::to_string(&ctx).map_or_else(|_| Vec::new(), |j| crate::render::pdf_unshowable(&j))
+}
+
 /// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes). The PDF
 /// is laid out from the HTML, so both always say the same.
 pub fn render_participant(

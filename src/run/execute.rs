@@ -502,6 +502,21 @@ fn process_participant(
                     .join(", ")
             );
         }
+        if plan.formats.contains(&crate::program::Format::Pdf) {
+            let missing = report::pdf_unshowable_text(&ctx);
+            if !missing.is_empty() {
+                tracing::warn!(
+                    "{}: the PDF's font has no glyph for {} in the report's text (a site, team, activity or other name from the inputs); they show as empty boxes in the PDF (the HTML shows them)",
+                    data.profile.id,
+                    missing
+                        .iter()
+                        .take(8)
+                        .map(|c| format!("`{c}` U+{:04X}", *c as u32))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                );
+            }
+        }
         let files = report::render_participant(templates, &ctx, &plan.formats)
             .map_err(|e| RunError::Render(format!("participant {}: {e}", data.profile.id)))?;
         // Each report is written and dropped at once: no report bytes outlive this loop.

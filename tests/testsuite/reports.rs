@@ -1257,7 +1257,8 @@ fn a_name_the_pdf_font_cannot_show_is_replaced_by_the_id_with_a_warning() {
     let text = std::fs::read_to_string(&p).unwrap();
     std::fs::write(
         &p,
-        text.replace("name: \"<script>alert(1)</script>\"", "name: \"王小明\""),
+        text.replace("name: \"<script>alert(1)</script>\"", "name: \"王小明\"")
+            .replace("team: Office", "team: \"東京 Office\""),
     )
     .unwrap();
     let out = prog.run(&[
@@ -1271,12 +1272,16 @@ fn a_name_the_pdf_font_cannot_show_is_replaced_by_the_id_with_a_warning() {
         "{}",
         out.stderr
     );
-    // Only the participant whose name cannot be shown.
+    // Other text the font lacks is named too (it shows as boxes in the PDF).
     assert!(
-        !out.stderr.contains("SG-007: participants"),
+        out.stderr.contains(
+            "SG-900: the PDF's font has no glyph for `東` U+6771, `京` U+4EAC in the report's text"
+        ),
         "{}",
         out.stderr
     );
+    // Only the participant whose text cannot be shown.
+    assert!(!out.stderr.contains("SG-007: "), "{}", out.stderr);
     let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-900.html")).unwrap();
     assert!(html.contains("<h1><bdi>王小明</bdi></h1>"));
     let pdf = std::fs::read(prog.dir.join("o/participants/SG-900.pdf")).unwrap();
