@@ -86,14 +86,14 @@ const INTAKE_DRIFT_PER_DAY: f64 = 3.0;
 /// stop and regain; with all of it, 85 % (seed 20261202; 92.5 → 96.2 % over everyone;
 /// VALIDATION.md).
 const FADE_SHARE: f64 = 1.0;
-/// Most energy a person can take in and absorb, sustained over weeks, as a multiple of resting
-/// energy: the alimentary limit on sustained energy budgets, about 2.5 × BMR for efforts of
+/// Default of `max_sustained_intake_x_rmr`: the most energy a person can take in and absorb,
+/// sustained over weeks, as a multiple of resting energy: the alimentary limit on sustained energy budgets, about 2.5 × BMR for efforts of
 /// weeks or more (Thurber et al. 2019, Sci Adv 5:eaaw0341; from memory). An implied intake
 /// above it is a rise the gut could not have supplied: a step in the weigh-ins (another scale,
 /// clothing, a typing error) or fluid, not tissue. Applied to the 28-day window and, as a
 /// program choice, to each week of the weekly table (a week's implied intake is read off the
 /// smoothed trend, so it is no single feast either).
-const MAX_SUSTAINED_INTAKE_X_RMR: f64 = 2.5;
+pub(crate) const MAX_SUSTAINED_INTAKE_X_RMR: f64 = 2.5;
 /// Smallest BMI a reported steady state or forecast may reach: the linearised energy balance
 /// is not a model of starvation (program choice; BMI 16 is the WHO threshold of severe
 /// thinness).
@@ -106,6 +106,7 @@ struct Settings {
     underreport_prior: f64,
     underreport_sd: f64,
     window_days: u64,
+    max_intake_x_rmr: f64,
     target_loss: f64,
     max_safe_loss: f64,
     floor_female: f64,
@@ -135,6 +136,8 @@ impl Settings {
                 / 100.0)
                 .max(0.001),
             window_days: ctx.setting_f64("window_days", 28.0).round().max(1.0) as u64,
+            max_intake_x_rmr: ctx
+                .setting_f64("max_sustained_intake_x_rmr", MAX_SUSTAINED_INTAKE_X_RMR),
             target_loss: ctx.setting_f64("target_loss_kg_per_week", 0.5),
             max_safe_loss: ctx.setting_f64("max_safe_loss_kg_per_week", 1.0),
             floor_female: ctx.setting_f64("intake_floor_female", 1200.0),
@@ -333,6 +336,8 @@ struct Person<'a> {
     model: HallModel,
     lin: LinearisedModel,
     trend: Trend,
+    /// `max_sustained_intake_x_rmr` (see [`MAX_SUSTAINED_INTAKE_X_RMR`]).
+    max_intake_x_rmr: f64,
 }
 
 impl Person<'_> {
@@ -455,10 +460,10 @@ impl Person<'_> {
 
     /// Whether an implied intake `intake` at body weight `bw` on day `d` can be energy balance
     /// at all, and if not why: below zero (a fall faster than eating nothing at all gives) or
-    /// above the most a person can take in over weeks ([`MAX_SUSTAINED_INTAKE_X_RMR`] ×
+    /// above the most a person can take in over weeks (`max_sustained_intake_x_rmr` ×
     /// resting energy). The one test for the window, the weekly table and the plateau table.
     fn implausible(&self, bw: f64, d: NaiveDate, intake: f64) -> Option<Unexplained> {
-        let ceiling = MAX_SUSTAINED_INTAKE_X_RMR * self.rmr_at(bw, d);
+        let ceiling = self.max_intake_x_rmr * self.rmr_at(bw, d);
         if intake < 0.0 {
             Some(Unexplained::Fall)
         } else if intake > ceiling {
@@ -542,10 +547,11 @@ pub(crate) fn run(
                 .to_string(),
             Unexplained::Rise { intake, ceiling } => format!(
                 "rose faster than food can build body tissue: it would take about {:.0} kcal a \
-                 day, more than a person can take in and absorb for weeks on end (about 2.5 \
+                 day, more than a person can take in and absorb for weeks on end (about {:.1} \
                  times resting energy, here about {ceiling:.0} kcal a day). A change of scale \
                  or clothing, a mistyped weigh-in or fluid is more likely",
-                intake.round()
+                intake.round(),
+                s.max_intake_x_rmr
             ),
         };
         out.push_flag(
@@ -650,6 +656,7 @@ fn start<'a>(
         model: HallModel::new(bw0, fm0, rmr0, s.base_pal),
         lin: LinearisedModel::from_baseline(bw0, fm0, rmr0, s.base_pal),
         trend,
+        max_intake_x_rmr: s.max_intake_x_rmr,
     };
     Some((
         person,

@@ -819,7 +819,7 @@ fn a_rise_faster_than_food_can_supply_gives_no_implied_intake() {
     };
     let n = days_incl(enrolled, period.to) as usize;
     let step_at = n - 10;
-    let run = |step: f64| {
+    let run_with = |step: f64, settings: serde_json::Value| {
         let weights: Vec<f64> = (0..n)
             .map(|i| match i {
                 i if i < step_at => 90.0,
@@ -847,13 +847,21 @@ fn a_rise_faster_than_food_can_supply_gives_no_implied_intake() {
                 free_sugars_g: None,
             })
             .collect();
-        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        let mut c = ctx(enrolled, d("2027-06-30"), period, settings);
         c.earlier.insert(
             "trend".into(),
             trend_output(enrolled, &weights, 0.4, 0.05, &[]),
         );
         EnergyModule.compute(&c, &data).unwrap()
     };
+    let run = |step: f64| run_with(step, serde_json::json!({}));
+    // With the limit raised (a program of endurance athletes) the same rise is read as intake.
+    let raised = run_with(
+        8.0,
+        serde_json::json!({ "max_sustained_intake_x_rmr": 6.0 }),
+    );
+    let i = raised.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!(i > 2.5 * raised.scalar("rmr_kcal_per_day").unwrap(), "{i}");
     // Without the step: an ordinary implied intake, and the flag is not raised.
     let steady = run(0.0);
     assert!(steady.scalar("implied_intake_kcal_per_day").is_some());
