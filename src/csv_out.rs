@@ -26,10 +26,10 @@ fn is_plain_number(s: &str) -> bool {
 
 /// Characters a CSV cell never holds raw: control characters other than tab and line breaks
 /// (an ESC sequence retitles or clears the terminal of whoever `cat`s the file) and
-/// bidirectional overrides, isolates and marks (which reorder what a reader sees).
+/// bidirectional overrides, isolates and marks (which reorder what a reader sees): the
+/// report's own list ([`crate::text::is_invisible_control`]).
 fn hidden(c: char) -> bool {
-    (c.is_control() && !matches!(c, '\t' | '\n' | '\r'))
-        || matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}' | '\u{206a}'..='\u{206f}' | '\u{200e}' | '\u{200f}' | '\u{061c}')
+    crate::text::is_invisible_control(c)
 }
 
 /// `s` as a CSV cell that a spreadsheet opens as data: a `'` in front of text that begins like a

@@ -1300,3 +1300,25 @@ fn a_name_the_pdf_font_cannot_show_is_replaced_by_the_id_with_a_warning() {
         &pages[0][..100]
     );
 }
+
+/// Every value a template prints goes through one escaping, which drops invisible direction and
+/// control characters whatever input they came from (a session or activity name, a note of an
+/// external module), and the text helpers too.
+#[test]
+fn template_escaping_drops_invisible_direction_characters() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("participant.html.hbs"),
+        "<p>{{note}}</p><p>{{date note}}</p>",
+    )
+    .unwrap();
+    let set = TemplateSet::with_overrides(Some(dir.path())).unwrap();
+    let ctx = serde_json::json!({ "note": "Walk \u{202e}<b>x</b>\u{2066}\u{200f}\u{1b}[31m" });
+    let html = set
+        .render("participant.html", &ctx, serde_json::Map::new())
+        .unwrap();
+    assert_eq!(
+        html,
+        "<p>Walk &lt;b&gt;x&lt;/b&gt;[31m</p><p>Walk &lt;b&gt;x&lt;/b&gt;[31m</p>"
+    );
+}
