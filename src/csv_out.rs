@@ -26,10 +26,10 @@ fn is_plain_number(s: &str) -> bool {
 
 /// Characters a CSV cell never holds raw: control characters other than tab and line breaks
 /// (an ESC sequence retitles or clears the terminal of whoever `cat`s the file) and
-/// bidirectional overrides (which reorder what a reader sees).
+/// bidirectional overrides, isolates and marks (which reorder what a reader sees): the
+/// report's own list ([`crate::text::is_invisible_control`]).
 fn hidden(c: char) -> bool {
-    (c.is_control() && !matches!(c, '\t' | '\n' | '\r'))
-        || matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}')
+    crate::text::is_invisible_control(c)
 }
 
 /// `s` as a CSV cell that a spreadsheet opens as data: a `'` in front of text that begins like a
@@ -107,6 +107,15 @@ mod tests {
         for text in ["East Yard", "", "a=b", " =1", "'=1"] {
             assert_eq!(cell(text), text);
         }
+    }
+
+    /// Direction marks (U+200E/F, U+061C) were written raw while the overrides were escaped.
+    #[test]
+    fn direction_marks_are_escaped_like_overrides() {
+        assert_eq!(cell("a\u{200f}b"), "a\\u{200f}b");
+        assert_eq!(cell("a\u{061c}b"), "a\\u{61c}b");
+        assert_eq!(cell("a\u{202e}b"), "a\\u{202e}b");
+        assert_eq!(cell("سارة"), "سارة");
     }
 
     #[test]

@@ -42,5 +42,6 @@ pub(crate) mod progress;
 pub(crate) mod render;
 pub mod report;
 pub mod run;
+pub(crate) mod text;
 pub(crate) mod tidy;
 pub mod yaml;

@@ -109,7 +109,20 @@ pub fn parse_profile(
     let at = |key: &str, d: Diagnostic| {
         let d = d.field(key);
         match key_line(text, key) {
-            Some(l) => d.at(l, None),
+            // The column of the value after `key:` (1-based, in characters), when one is
+            // written on the key's line.
+            Some(l) => {
+                let col = text.lines().nth(l as usize - 1).and_then(|line| {
+                    let (_, after) = line.split_once(':')?;
+                    let value = after.trim_start();
+                    (!value.is_empty()).then(|| {
+                        (line.chars().count() - after.chars().count()
+                            + (after.chars().count() - value.chars().count())
+                            + 1) as u64
+                    })
+                });
+                d.at(l, col)
+            }
             None => d,
         }
     };
@@ -236,7 +249,8 @@ pub fn parse_profile(
             _ => None,
         };
         match text {
-            Some(t) if !t.trim().is_empty() => {
+            Some(t) if !crate::text::neutralise(&t).trim().is_empty() => {
+                let t = invisible_checked(&t, &format!("group `{k}`"), "groups", &at, ctx, diags);
                 groups.insert(k.clone(), t.trim().to_string());
             }
             _ => diags.push(at(
@@ -300,9 +314,14 @@ pub fn parse_profile(
     if has_error {
         return None;
     }
+    let name = def
+        .name
+        .as_deref()
+        .map(|n| invisible_checked(n, "the name", "name", &at, ctx, diags))
+        .filter(|n| !n.trim().is_empty());
     Some(Profile {
         id: def.id,
-        name: def.name.filter(|n| !n.trim().is_empty()),
+        name,
         sex: def.sex,
         birth_date: def.birth_date,
         age_years: age_years?,
@@ -428,6 +447,62 @@ flags: [glucose-lowering-medication]
         assert!(d[0].message.contains("implausible height"), "{}", d[0]);
     }
 
+    /// `1e400 cm` was reported as "unknown unit `e`", at a line without a column.
+    #[test]
+    fn an_out_of_range_height_is_named_with_line_and_column() {
+        let (p, d) = parse(&GOOD.replace("5 ft 6 in", "1e400 cm"));
+        assert!(p.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(
+            d[0].message,
+            "unreadable height: `1e400` is out of range (not a finite number)"
+        );
+        assert_eq!((d[0].line, d[0].column), (Some(5), Some(9)));
+        assert_eq!(d[0].found.as_deref(), Some("`1e400 cm`"));
+        assert_eq!(d[0].expected.as_deref(), Some("a height with its unit"));
+        let (_, d) = parse(&GOOD.replace("5 ft 6 in", "NaN cm"));
+        assert!(
+            d[0].message.ends_with("`nan` is not a finite number"),
+            "{}",
+            d[0]
+        );
+    }
+
+    /// A right-to-left override in a name or a site reordered the report's text around it.
+    /// The reader drops such characters and says so where they were written.
+    #[test]
+    fn invisible_direction_characters_are_dropped_with_a_warning() {
+        let text = GOOD
+            .replace("name: Dana Example", "name: \"Dana\\u202E Example\\u200F\"")
+            .replace("site: North Plant", "site: \"North\\u202B Plant\"");
+        assert!(text.contains("\\u202E"), "{text}");
+        let (p, d) = parse(&text);
+        let p = p.unwrap();
+        assert_eq!(p.name.as_deref(), Some("Dana Example"));
+        assert_eq!(p.groups["site"], "North Plant");
+        assert_eq!(d.len(), 2, "{d:?}");
+        assert!(d.iter().all(|x| x.severity == Severity::Warning));
+        let name = d
+            .iter()
+            .find(|x| x.field.as_deref() == Some("name"))
+            .unwrap();
+        assert_eq!(
+            name.message,
+            "the name holds invisible direction or control characters (U+202E, U+200F); they are left out of the reports"
+        );
+        assert_eq!(name.line, Some(2));
+        assert!(name.column.is_some());
+        let site = d
+            .iter()
+            .find(|x| x.field.as_deref() == Some("groups"))
+            .unwrap();
+        assert!(
+            site.message.starts_with("group `site` holds"),
+            "{}",
+            site.message
+        );
+    }
+
     #[test]
     fn unknown_key_is_named_with_line() {
         let (p, d) = parse(&format!("{GOOD}hair: brown\n"));
@@ -484,6 +559,37 @@ flags: [glucose-lowering-medication]
 
 /// Hint for a height written without a unit: suggest the unit the number most plausibly has
 /// (a number over 100 is centimetres, 48–96 inches, a small one metres), never an absurd one.
+/// `text` (the value of `key`, described as `what`) without its invisible direction and control
+/// characters (`crate::text`), with a warning naming them when there were any: the reports
+/// would drop them anyway, and a name or site that reorders the text around it is worth a look.
+fn invisible_checked(
+    text: &str,
+    what: &str,
+    key: &str,
+    at: &dyn Fn(&str, Diagnostic) -> Diagnostic,
+    ctx: &FileCtx,
+    diags: &mut Vec<Diagnostic>,
+) -> String {
+    let found: Vec<String> = text
+        .chars()
+        .filter(|&c| crate::text::is_invisible_control(c))
+        .map(|c| format!("U+{:04X}", c as u32))
+        .collect();
+    if !found.is_empty() {
+        diags.push(at(
+            key,
+            ctx.warning(format!(
+                "{what} holds invisible direction or control characters ({}); they are left out of the reports",
+                found.join(", ")
+            ))
+            .expected("letters, digits, spaces and punctuation")
+            .found(format!("`{}`", text.escape_default()))
+            .hint("retype the value, or copy it from a source that does not add direction marks"),
+        ));
+    }
+    crate::text::neutralise(text).into_owned()
+}
+
 fn bare_height_hint(n: f64) -> String {
     if n >= 100.0 {
         format!("write e.g. `height: {n} cm`")

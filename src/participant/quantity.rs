@@ -10,6 +10,12 @@ pub enum NumberError {
     Empty,
     /// A decimal comma (`72,5`) where a point is expected.
     DecimalComma,
+    /// A number in exponent notation (`1e5`) that is within range.
+    Exponent,
+    /// A number too large (or too small) to hold (`1e400`, 400 digits): not finite once read.
+    OutOfRange,
+    /// `NaN`, `inf`, `infinity`: words a float parser takes, no measurement.
+    NotFinite,
     /// Not a number at all.
     NotANumber,
 }
@@ -22,14 +28,92 @@ impl NumberError {
             NumberError::DecimalComma => {
                 "write numbers with a decimal point and no thousands separator: `72.5`, not `72,5`"
             }
+            NumberError::Exponent => {
+                "write the number out in full with a decimal point, e.g. `72.5` (no exponent such as `e5`)"
+            }
+            NumberError::OutOfRange | NumberError::NotFinite => {
+                "write the measured value as a plain number such as `72.5`; check for a typing or export error"
+            }
             NumberError::NotANumber => "write a plain number such as `72.5` (no units or words)",
+        }
+    }
+
+    /// What is wrong, for a message: `` `1e400` is out of range (not a finite number) ``.
+    pub fn describe(&self, written: &str) -> String {
+        let w = written.trim();
+        match self {
+            NumberError::Empty => "no number".to_string(),
+            NumberError::DecimalComma => format!("`{w}` has a decimal comma"),
+            NumberError::Exponent => format!("`{w}` is in exponent notation"),
+            NumberError::OutOfRange => {
+                format!("`{w}` is out of range (not a finite number)")
+            }
+            NumberError::NotFinite => format!("`{w}` is not a finite number"),
+            NumberError::NotANumber => format!("`{w}` is not a number"),
         }
     }
 }
 
-/// Reads a plain decimal number (`72`, `72.5`, `-3`, `.5`). Words (`nan`, `inf`), thousands
-/// separators and decimal commas are refused; a decimal comma is recognised so the message can
-/// suggest a point.
+/// Whether `s` is a number in exponent notation: `[+-]digits[.digits]e[+-]digits`.
+fn is_exponent_form(s: &str) -> bool {
+    let s = s.strip_prefix(['-', '+']).unwrap_or(s);
+    let Some((mantissa, exp)) = s.split_once(['e', 'E']) else {
+        return false;
+    };
+    let exp = exp.strip_prefix(['-', '+']).unwrap_or(exp);
+    let mantissa_ok = mantissa.chars().all(|c| c.is_ascii_digit() || c == '.')
+        && mantissa.chars().filter(|&c| c == '.').count() <= 1
+        && mantissa.chars().any(|c| c.is_ascii_digit());
+    mantissa_ok && !exp.is_empty() && exp.chars().all(|c| c.is_ascii_digit())
+}
+
+/// Whether `s` is one of the words a float parser reads as a non-finite value.
+fn is_non_finite_word(s: &str) -> bool {
+    let s = s.strip_prefix(['-', '+']).unwrap_or(s);
+    ["nan", "inf", "infinity"]
+        .iter()
+        .any(|w| s.eq_ignore_ascii_case(w))
+}
+
+/// The byte length of the number at the start of `s` as a tokenizer should cut it: a sign,
+/// digits, points and commas, an exponent (`1e400`: cut after `e`, the rest would be read as a
+/// unit `e`) and the words `nan`, `inf`, `infinity` (so they are named as numbers, not units).
+pub fn number_prefix_len(s: &str) -> usize {
+    let b = s.as_bytes();
+    let mut i = 0;
+    if i < b.len() && matches!(b[i], b'-' | b'+') {
+        i += 1;
+    }
+    for w in ["infinity", "inf", "nan"] {
+        if s.len() >= i + w.len()
+            && s[i..i + w.len()].eq_ignore_ascii_case(w)
+            && !s[i + w.len()..].starts_with(|c: char| c.is_alphanumeric())
+        {
+            return i + w.len();
+        }
+    }
+    let start = i;
+    while i < b.len() && (b[i].is_ascii_digit() || matches!(b[i], b'.' | b',')) {
+        i += 1;
+    }
+    if i > start && i < b.len() && matches!(b[i], b'e' | b'E') {
+        let mut j = i + 1;
+        if j < b.len() && matches!(b[j], b'-' | b'+') {
+            j += 1;
+        }
+        if j < b.len() && b[j].is_ascii_digit() {
+            while j < b.len() && b[j].is_ascii_digit() {
+                j += 1;
+            }
+            i = j;
+        }
+    }
+    if i == start { 0 } else { i }
+}
+
+/// Reads a plain decimal number (`72`, `72.5`, `-3`, `.5`). Words (`nan`, `inf`), exponents,
+/// thousands separators and decimal commas are refused, each with its own reason so the message
+/// can say what was found; a number too large to hold is out of range. `-0` reads as 0.
 pub fn parse_decimal(s: &str) -> Result<f64, NumberError> {
     let s = s.trim();
     if s.is_empty() {
@@ -42,15 +126,40 @@ pub fn parse_decimal(s: &str) -> Result<f64, NumberError> {
             return Err(NumberError::DecimalComma);
         }
     }
-    // Rust's float parser also takes `inf`, `NaN` and exponents; people's files hold none of
-    // these on purpose, so only digits and one point are allowed.
+    if is_non_finite_word(s) {
+        return Err(NumberError::NotFinite);
+    }
+    if is_exponent_form(s) {
+        // Out of range both ways: too large (infinite) and too small to hold (a non-zero
+        // mantissa read as 0 or as a subnormal).
+        let mantissa_zero = !digits
+            .split(['e', 'E'])
+            .next()
+            .unwrap_or("")
+            .chars()
+            .any(|c| ('1'..='9').contains(&c));
+        return Err(match s.parse::<f64>() {
+            Ok(v) if v.is_finite() && (mantissa_zero || v.abs() >= f64::MIN_POSITIVE) => {
+                NumberError::Exponent
+            }
+            _ => NumberError::OutOfRange,
+        });
+    }
+    // Rust's float parser also takes `inf`, `NaN` and exponents (named above); people's files
+    // hold none of these on purpose, so only digits and one point are read.
     let ok_chars = digits.chars().all(|c| c.is_ascii_digit() || c == '.')
         && digits.chars().filter(|&c| c == '.').count() <= 1
         && digits.chars().any(|c| c.is_ascii_digit());
     if !ok_chars {
         return Err(NumberError::NotANumber);
     }
-    s.parse::<f64>().map_err(|_| NumberError::NotANumber)
+    let v = s.parse::<f64>().map_err(|_| NumberError::NotANumber)?;
+    if !v.is_finite() {
+        // Hundreds of digits: beyond what a 64-bit float holds.
+        return Err(NumberError::OutOfRange);
+    }
+    // `-0` is 0 (never printed as "−0").
+    Ok(v + 0.0)
 }
 
 /// Why a length could not be read.
@@ -111,9 +220,10 @@ pub fn parse_length(text: &str) -> Result<Length, QuantityError> {
             break;
         }
         let start = i;
-        while i < chars.len() && (chars[i].is_ascii_digit() || chars[i] == '.' || chars[i] == ',') {
-            i += 1;
-        }
+        // The number as one token, exponent and `nan`/`inf` included: `1e400 cm` is an
+        // out-of-range number, not the number 1 with a unit `e`.
+        let rest = &norm[byte_at(&norm, start)..];
+        i += rest[..number_prefix_len(rest)].chars().count();
         let num: String = chars[start..i].iter().collect();
         if num.is_empty() {
             return Err(qerr(format!(
@@ -148,7 +258,14 @@ pub fn parse_length(text: &str) -> Result<Length, QuantityError> {
                     hint: format!("write `{}` with a decimal point", num.replace(',', ".")),
                 });
             }
-            Err(_) => return Err(qerr(format!("`{num}` is not a number"))),
+            Err(e) => {
+                return Err(QuantityError {
+                    message: e.describe(num),
+                    hint: "write the height as a plain number with its unit: `168 cm`, \
+                           `1.68 m`, `66 in` or `5 ft 6 in`"
+                        .into(),
+                });
+            }
         };
         let u = if unit.is_empty() {
             None
@@ -244,6 +361,29 @@ mod tests {
     }
 
     #[test]
+    fn out_of_range_and_other_number_forms_are_named_not_taken_for_units() {
+        // Was "unknown unit `e`": the number was cut at the `e`.
+        let e = parse_length("1e400 cm").unwrap_err();
+        assert_eq!(e.message, "`1e400` is out of range (not a finite number)");
+        let e = parse_length("1e5cm").unwrap_err();
+        assert_eq!(e.message, "`1e5` is in exponent notation");
+        let e = parse_length("NaN cm").unwrap_err();
+        assert_eq!(e.message, "`nan` is not a finite number");
+        let e = parse_length("inf m").unwrap_err();
+        assert_eq!(e.message, "`inf` is not a finite number");
+        let e = parse_length("1,5 m").unwrap_err();
+        assert!(e.message.contains("decimal comma"), "{e:?}");
+        // A sign is part of the number (the height range check then refuses it).
+        assert_eq!(cm("-0 cm"), 0.0);
+        assert_eq!(cm("-5 cm"), -5.0);
+        assert_eq!(number_prefix_len("1e400 cm"), 5);
+        assert_eq!(number_prefix_len("12 in"), 2);
+        assert_eq!(number_prefix_len("5e"), 1);
+        assert_eq!(number_prefix_len("inches"), 0);
+        assert_eq!(number_prefix_len("info"), 0);
+    }
+
+    #[test]
     fn decimals() {
         assert_eq!(parse_decimal("72.5"), Ok(72.5));
         assert_eq!(parse_decimal(" 72 "), Ok(72.0));
@@ -252,9 +392,31 @@ mod tests {
         assert_eq!(parse_decimal("72,5"), Err(NumberError::DecimalComma));
         assert_eq!(parse_decimal("1,200"), Err(NumberError::DecimalComma));
         assert_eq!(parse_decimal(""), Err(NumberError::Empty));
-        for bad in ["nan", "inf", "1e3", "72kg", "7.2.1", "-", ".", "n/a"] {
+        for bad in ["72kg", "7.2.1", "-", ".", "n/a", "1e5kg", "e5"] {
             assert_eq!(parse_decimal(bad), Err(NumberError::NotANumber), "{bad}");
         }
+        for (bad, why) in [
+            ("nan", NumberError::NotFinite),
+            ("NaN", NumberError::NotFinite),
+            ("-inf", NumberError::NotFinite),
+            ("Infinity", NumberError::NotFinite),
+            ("1e3", NumberError::Exponent),
+            ("1E-3", NumberError::Exponent),
+            ("1e400", NumberError::OutOfRange),
+            ("-1e400", NumberError::OutOfRange),
+            ("1e-400", NumberError::OutOfRange),
+        ] {
+            assert_eq!(parse_decimal(bad), Err(why), "{bad}");
+        }
+        // 400 digits parse to infinity: out of range, not a value.
+        assert_eq!(
+            parse_decimal(&format!("1{}", "0".repeat(400))),
+            Err(NumberError::OutOfRange)
+        );
+        // `-0` is 0, never a negative zero.
+        let z = parse_decimal("-0").unwrap();
+        assert_eq!(z, 0.0);
+        assert!(z.is_sign_positive());
         assert!(NumberError::DecimalComma.hint().contains("72.5"));
     }
 }

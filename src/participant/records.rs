@@ -6,6 +6,7 @@
 //! file whose shape cannot be trusted (missing column) is an error. Every list comes out sorted
 //! by date.
 
+use super::quantity::number_prefix_len;
 use super::table::{Cells, CsvOptions, Dropped, FileCtx, Table, read_table};
 use crate::activities;
 use crate::diag::Diagnostic;
@@ -945,10 +946,21 @@ fn lab_name(name: &str) -> Option<LabName> {
 /// Splits `5.7 %`, `128/82 mmHg` or `6,1 mmol/L` into the number part and the unit written
 /// after it (if any).
 fn split_value_unit(s: &str) -> (&str, Option<&str>) {
-    let end = s
-        .char_indices()
-        .find(|(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | ',' | '/' | '-' | '+' | ' ')))
-        .map_or(s.len(), |(i, _)| i);
+    // Numbers are cut whole (`1e400 %` is an out-of-range number, not 1 with a unit `e400 %`;
+    // `NaN %` a number that is not finite), with `/`, signs and spaces between them.
+    let mut end = 0;
+    loop {
+        let rest = &s[end..];
+        let n = number_prefix_len(rest);
+        if n > 0 {
+            end += n;
+            continue;
+        }
+        match rest.chars().next() {
+            Some(c) if matches!(c, '/' | '-' | '+' | ' ') => end += c.len_utf8(),
+            _ => break,
+        }
+    }
     let (num, unit) = s.split_at(end);
     let unit = unit.trim();
     (num.trim(), (!unit.is_empty()).then_some(unit))

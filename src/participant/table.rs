@@ -475,7 +475,28 @@ fn read_records(
     let mut rec = csv::StringRecord::new();
     let header = loop {
         match reader.read_record(&mut rec) {
-            Ok(false) => return Some(Table::empty(delimiter, sniffed)),
+            // Nothing but (blank) line ends: no header row at all. A file with only a header
+            // is fine (no rows yet); one with nothing in it is most often a failed export or
+            // a copy cut short, and is named rather than read as "no data".
+            Ok(false) => {
+                let what = if text.is_empty() {
+                    "the file is empty".to_string()
+                } else {
+                    "the file holds only blank lines".to_string()
+                };
+                diags.push(
+                    ctx.error(format!("{what}; the file is not used"))
+                        .at(1, None)
+                        .expected(format!("a header line naming the columns {}", column_list(spec)))
+                        .found(if text.is_empty() {
+                            "an empty file".to_string()
+                        } else {
+                            format!("{} blank line(s)", text.lines().count().max(1))
+                        })
+                        .hint("export the file again, or delete it if there is nothing to report; a file with only the header line is read as no rows"),
+                );
+                return None;
+            }
             Err(e) => {
                 diags.push(
                     ctx.error(format!(
@@ -1066,7 +1087,10 @@ impl Cells<'_> {
             Err(e) => {
                 let what = match e {
                     NumberError::DecimalComma => "decimal comma",
-                    _ => "not a number",
+                    NumberError::Exponent => "exponent notation",
+                    NumberError::OutOfRange => "out-of-range number (not finite)",
+                    NumberError::NotFinite => "not a finite number",
+                    NumberError::Empty | NumberError::NotANumber => "not a number",
                 };
                 diags.push(
                     self.warn(col, format!("{what} in `{col}`; {consequence}"))
@@ -1138,6 +1162,37 @@ mod tests {
     }
 
     #[test]
+    fn an_empty_file_is_named_and_a_header_only_file_is_not() {
+        for (text, found) in [("", "an empty file"), ("\n\r\n \n", "3 blank line(s)")] {
+            let (t, d) = read(text, &CsvOptions::default());
+            assert!(t.is_none(), "{text:?}");
+            assert_eq!(d.len(), 1, "{d:?}");
+            assert_eq!(d[0].severity, crate::diag::Severity::Error);
+            assert_eq!(d[0].file, "participants/P1/weights.csv");
+            assert_eq!(d[0].line, Some(1));
+            assert!(
+                d[0].expected.as_deref().unwrap().contains("header line"),
+                "{}",
+                d[0]
+            );
+            assert!(
+                d[0].expected.as_deref().unwrap().contains("date"),
+                "{}",
+                d[0]
+            );
+            assert_eq!(d[0].found.as_deref(), Some(found));
+        }
+        assert!(
+            read("", &CsvOptions::default()).1[0]
+                .message
+                .contains("the file is empty;")
+        );
+        let (t, d) = read("date,weight,unit\n", &CsvOptions::default());
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.unwrap().rows.len(), 0);
+    }
+
+    #[test]
     fn header_missing_is_recognised() {
         let (t, d) = read("2026-04-01,72,kg\n", &CsvOptions::default());
         assert!(t.is_none());
@@ -1185,8 +1240,13 @@ mod tests {
     }
 
     #[test]
-    fn empty_and_header_only_files_have_no_rows() {
-        for text in ["", "\n", "date,weight,unit\n", "date,weight,unit"] {
+    fn header_only_files_have_no_rows() {
+        // An empty file is an error (`an_empty_file_is_named_and_a_header_only_file_is_not`).
+        for text in [
+            "date,weight,unit\n",
+            "date,weight,unit",
+            "\ndate,weight,unit\n",
+        ] {
             let (t, d) = read(text, &CsvOptions::default());
             assert!(d.is_empty(), "{text:?}");
             assert!(t.unwrap().rows.is_empty());

@@ -411,7 +411,7 @@ fn svg_string(chart: &Chart, width: u32, height: u32, legend: u32) -> String {
 }
 
 fn escape_xml_into(out: &mut String, s: &str) {
-    for c in s.chars() {
+    for c in super::neutralise(s).chars() {
         match c {
             '<' => out.push_str("&lt;"),
             '>' => out.push_str("&gt;"),

@@ -164,14 +164,16 @@ fn push_text(
     if s.is_empty() {
         return;
     }
-    // Control characters have no glyph; show them as spaces.
+    // Control characters have no glyph; show them as spaces. Direction controls and marks
+    // are dropped (`super::neutralise`).
+    let s = super::neutralise(s);
     let s: std::borrow::Cow<'_, str> = if s.chars().any(char::is_control) {
         s.chars()
             .map(|c| if c.is_control() { ' ' } else { c })
             .collect::<String>()
             .into()
     } else {
-        s.into()
+        s
     };
     ops.extend([
         Op::StartTextSection,
@@ -870,6 +872,7 @@ fn scan_pages(pages: &[Vec<Op>]) -> (BTreeMap<Face, BTreeSet<char>>, BTreeSet<St
 /// A PDF text string: literal for plain ASCII, UTF-16BE with a byte-order mark otherwise
 /// (ISO 32000-1, 7.9.2.2).
 fn text_string(s: &str) -> Object {
+    let s = &*super::neutralise(s);
     if s.bytes().all(|b| (0x20..0x7F).contains(&b)) {
         Object::String(s.as_bytes().to_vec(), StringFormat::Literal)
     } else {

@@ -334,6 +334,7 @@ impl DrawingBackend for PdfChartBackend<'_> {
         style: &S,
         pos: BackendCoord,
     ) -> Result<(), DrawingErrorKind<PdfChartError>> {
+        let text = &*super::neutralise(text);
         if text.is_empty() {
             return Ok(());
         }

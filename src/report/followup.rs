@@ -73,7 +73,9 @@ pub fn reason(code: &str) -> &'static str {
         }
         "very_low_intake" => "Logged intake very low (below about 800 kcal a day on average)",
         "low_intake" => "Logged intake below the usual floor for eating less without supervision",
-        "low_bmi" => "BMI below 18.5 (WHO underweight range)",
+        "low_bmi" => {
+            "BMI below 18.5 (WHO underweight range), or below 20 while weight is still coming down"
+        }
         "lab_diabetes_range" => {
             "Latest glucose or HbA1c in the diabetes range (ADA Standards of Care)"
         }

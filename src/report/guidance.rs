@@ -72,6 +72,10 @@ pub struct Thresholds {
     /// BMI below which further loss is for a clinician. Default 18.5: the WHO cut-off for
     /// underweight (WHO 2000, Technical Report Series 894).
     pub underweight_bmi_below: f64,
+    /// BMI below which a weight that is still falling is for a clinician: the `outcomes`
+    /// module's `low_bmi_losing_below` (default 20; MUST, BAPEN 2003 — from memory), which
+    /// raises its `low_bmi` flag; the cautions name it.
+    pub low_bmi_losing_below: f64,
     /// Lowest intake an option may lead to, women, kcal/d: the `energy` module's
     /// `intake_floor_female` (default 1,200; the NIH/NHLBI 1998 Clinical Guidelines give
     /// 1,000–1,200 kcal/d diets for women — from memory; 1,200 as an unsupervised floor is
@@ -104,6 +108,7 @@ impl Default for Thresholds {
         Thresholds {
             loss_bmi_at_least: 25.0,
             underweight_bmi_below: 18.5,
+            low_bmi_losing_below: 20.0,
             floor_female: 1200.0,
             floor_male: 1500.0,
             max_loss_kg_per_week: 1.0,
@@ -132,6 +137,12 @@ impl Thresholds {
         Thresholds {
             loss_bmi_at_least: g.loss_bmi_at_least.unwrap_or(d.loss_bmi_at_least),
             underweight_bmi_below: g.underweight_bmi_below.unwrap_or(d.underweight_bmi_below),
+            low_bmi_losing_below: plan
+                .modules
+                .settings("outcomes")
+                .and_then(|s| s.get("low_bmi_losing_below"))
+                .and_then(|v| v.as_f64())
+                .unwrap_or(d.low_bmi_losing_below),
             floor_female: e("intake_floor_female", d.floor_female),
             floor_male: e("intake_floor_male", d.floor_male),
             max_loss_kg_per_week: e("max_safe_loss_kg_per_week", d.max_loss_kg_per_week),

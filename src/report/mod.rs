@@ -190,11 +190,15 @@ const NARROW_PLOT_H: u32 = 300;
 fn svg(name: &str, c: &Chart) -> String {
     let mut esc = String::new();
     handlebars::html_escape(name).clone_into(&mut esc);
-    format!(
+    // The charts' labels (site and group names among them) are text from inputs too: the SVG
+    // holds no invisible direction or control character (`render::neutralise`), whatever
+    // plotters' own escaping keeps.
+    let html = format!(
         "<div class=\"chart\" data-chart=\"{esc}\"><div class=\"chart-wide\">{}</div><div class=\"chart-narrow\">{}</div></div>",
         chart::to_svg(c, CHART_W, CHART_H),
         chart::to_svg_narrow(c, NARROW_W, NARROW_PLOT_H)
-    )
+    );
+    crate::render::neutralise(&html).into_owned()
 }
 
 /// The drawn charts by name, as SVG for the template's `{{chart}}` helper.
@@ -203,6 +207,23 @@ fn svg_map(charts: &BTreeMap<String, Chart>) -> serde_json::Map<String, serde_js
         .iter()
         .map(|(name, c)| (name.clone(), svg(name, c).into()))
         .collect()
+}
+
+/// The characters of the participant's name the PDF's embedded font cannot show, when there are
+/// any: the PDF then names them by their id ([`render_participant`]), and the run warns.
+pub fn pdf_name_fallback(report: &ParticipantReport) -> Option<Vec<char>> {
+    let missing = crate::render::pdf_unshowable(&report.ctx.participant.display_name);
+    (!missing.is_empty()).then_some(missing)
+}
+
+/// The characters the PDF's embedded font cannot show in the rest of the participant's report
+/// (a site, team or activity name, a note from an external module …): they print as empty
+/// boxes in the PDF, and the run warns. The name is left out (see [`pdf_name_fallback`]).
+pub fn pdf_unshowable_text(report: &ParticipantReport) -> Vec<char> {
+    let mut ctx = report.ctx.clone();
+    ctx.participant.display_name.clear();
+    // Every text the template can print is a string of the context; its keys are ASCII.
+    serde_json::to_string(&ctx).map_or_else(|_| Vec::new(), |j| crate::render::pdf_unshowable(&j))
 }
 
 /// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes). The PDF
@@ -220,8 +241,22 @@ pub fn render_participant(
     if let Some(c) = &report.activity_chart {
         charts.insert("activity".into(), c.clone());
     }
-    let html = templates.render("participant.html", &report.ctx, svg_map(&charts))?;
+    let svgs = svg_map(&charts);
+    let html = templates.render("participant.html", &report.ctx, svgs.clone())?;
     let c = &report.ctx;
+    // A name the PDF's font cannot show (most CJK, Thai …) would print as empty boxes, or
+    // nothing a reader can copy: the PDF names the participant by their id instead (no
+    // transliteration: a guessed spelling of someone's name is worse than none). The HTML,
+    // which the reader's own fonts show, keeps the name; the run log says so
+    // (`pdf_name_fallback`).
+    let pdf_html = match pdf_name_fallback(report) {
+        Some(_) if formats.contains(&Format::Pdf) => {
+            let mut ctx = report.ctx.clone();
+            ctx.participant.display_name = format!("Participant {}", c.participant.id);
+            templates.render("participant.html", &ctx, svgs)?
+        }
+        _ => html.clone(),
+    };
     let mut out = Vec::new();
     for f in formats {
         match f {
@@ -229,7 +264,7 @@ pub fn render_participant(
             Format::Pdf => out.push((
                 "pdf",
                 from_html::pdf(
-                    &html,
+                    &pdf_html,
                     &templates.source_of("participant.html"),
                     &charts,
                     from_html::Frame {

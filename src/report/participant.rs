@@ -182,7 +182,15 @@ pub fn build(
 
     let (energy_view, energy_chart) = match &v.energy {
         Some(e) => {
-            let (view, chart) = energy_section(e);
+            let window_days = plan
+                .modules
+                .settings("energy")
+                .and_then(|s| s.get("window_days"))
+                .and_then(|v| v.as_f64())
+                .unwrap_or(28.0)
+                .round()
+                .max(1.0) as u64;
+            let (view, chart) = energy_section(e, window_days);
             (Some(view), chart)
         }
         None => (None, None),
@@ -732,7 +740,13 @@ fn weight_chart(
     )
 }
 
-fn energy_section(e: &EnergyResults) -> (EnergyView, Option<Chart>) {
+/// The energy section. Its total energy use and the weekly table's energy use are two
+/// estimates over different days: the total covers the energy module's last `window_days` and,
+/// when the weight trend gives an implied intake, is measured by energy balance (implied intake
+/// minus the energy stored); the weeks use the resting-energy equation × the person's activity
+/// level + that week's logged activity. Both say which they are, so a reader comparing the
+/// summary with the last weeks knows why they differ.
+fn energy_section(e: &EnergyResults, window_days: u64) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
     let push = |items: &mut Vec<Kv>, label: &str, s: Interval| {
         if let Some(v) = s.value {
@@ -749,7 +763,24 @@ fn energy_section(e: &EnergyResults) -> (EnergyView, Option<Chart>) {
         "Activity, beyond resting",
         e.activity_net_kcal_per_day,
     );
-    push(&mut items, "Total energy use per day", e.tdee_kcal_per_day);
+    // By energy balance exactly when there is an implied intake (the energy module's rule).
+    let by_balance = e.implied_intake_kcal_per_day.value.is_some();
+    let span = if window_days.is_multiple_of(7) {
+        let w = window_days / 7;
+        if w == 1 {
+            "last week".to_string()
+        } else {
+            format!("last {w} weeks")
+        }
+    } else {
+        format!("last {window_days} days")
+    };
+    let tdee_label = if by_balance {
+        format!("Total energy use per day ({span}, from your weight trend)")
+    } else {
+        "Total energy use per day (equation and activity, this period)".to_string()
+    };
+    push(&mut items, &tdee_label, e.tdee_kcal_per_day);
     push(
         &mut items,
         "Intake you logged (average)",
@@ -767,11 +798,20 @@ fn energy_section(e: &EnergyResults) -> (EnergyView, Option<Chart>) {
         items.push(Kv::new("Energy balance (implied)", &fmt::kcal_change(b)));
     }
     items.push(Kv::new("Resting-energy equation", e.rmr_equation.label()));
-    let explanation = "Energy use is estimated from a published equation and your logged activity (net of what you would burn resting). The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard. Ranges are 95 % intervals.".to_string();
+    let how_total = if by_balance {
+        format!(
+            "The total energy use above is measured over the {span} from your weight trend: the intake it implies minus the energy your weight change stored or released. The week-by-week energy use below is estimated from a published equation, your activity level and the activity you logged that week (net of what you would burn resting), so the two can differ."
+        )
+    } else {
+        "Energy use is estimated from a published equation, your activity level and your logged activity (net of what you would burn resting); the total above covers this period, the table below each week.".to_string()
+    };
+    let explanation = format!(
+        "{how_total} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard. Ranges are 95 % intervals."
+    );
     let mut table = TableView {
         header: vec![
             "Week of".into(),
-            "Energy use (kcal/day)".into(),
+            "Energy use, estimated (kcal/day)".into(),
             "Logged intake".into(),
             "Implied intake".into(),
         ],
@@ -1094,6 +1134,54 @@ mod activity_unread_tests {
         assert!(!has_rate(&views(&t)));
         t.status = Status::Regaining;
         assert!(has_rate(&views(&t)));
+    }
+
+    /// The summary showed "Total energy use per day 3,002" (by energy balance over the last
+    /// four weeks) above weeks of about 2,850 (equation × activity level), with one
+    /// explanation saying both came from the equation. Each now says what it is.
+    #[test]
+    fn the_two_energy_use_figures_say_what_they_are() {
+        use cohortpress_metric_api::view::ModuleView;
+        use cohortpress_metric_api::{MetricModule, fixture};
+        let data = fixture::participant();
+        let t = cohortpress_metric_trend::TrendModule;
+        let trend = t.compute(&fixture::context(&t.spec(), &[]), &data).unwrap();
+        let m = cohortpress_metric_energy::EnergyModule;
+        let out = m
+            .compute(&fixture::context(&m.spec(), &[("trend", &trend)]), &data)
+            .unwrap();
+        let mut e = EnergyResults::from_output(&out).unwrap();
+        assert!(e.implied_intake_kcal_per_day.value.is_some());
+        let label = |v: &EnergyView| {
+            v.items
+                .iter()
+                .find(|k| k.label.starts_with("Total energy use"))
+                .unwrap()
+                .label
+                .clone()
+        };
+        let (v, chart) = energy_section(&e, 28);
+        assert!(chart.is_some());
+        assert_eq!(
+            label(&v),
+            "Total energy use per day (last 4 weeks, from your weight trend)"
+        );
+        assert!(
+            v.explanation
+                .contains("measured over the last 4 weeks from your weight trend")
+        );
+        assert!(v.explanation.contains("so the two can differ"));
+        assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
+        let (v, _) = energy_section(&e, 30);
+        assert!(label(&v).contains("(last 30 days, from your weight trend)"));
+        // Without an implied intake the total is the equation's, over the period.
+        e.implied_intake_kcal_per_day.value = None;
+        let (v, _) = energy_section(&e, 28);
+        assert_eq!(
+            label(&v),
+            "Total energy use per day (equation and activity, this period)"
+        );
+        assert!(!v.explanation.contains("can differ"));
     }
 
     #[test]

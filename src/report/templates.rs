@@ -103,6 +103,10 @@ impl TemplateSet {
         let mut hb = Handlebars::new();
         hb.set_strict_mode(true);
         hb.set_prevent_indent(true);
+        // Every `{{value}}` is escaped here: HTML-escaped, and its invisible direction and
+        // control characters dropped (`render::neutralise`), so no text from an input can
+        // reorder the report around it. The PDF is laid out from this HTML.
+        hb.register_escape_fn(|s| handlebars::html_escape(&crate::render::neutralise(s)));
         register_helpers(&mut hb);
         let mut sources = Vec::new();
         for (name, text, src) in &files {
@@ -543,7 +547,7 @@ fn text_helper(
                   _: &mut RenderContext<'_, '_>,
                   out: &mut dyn Output|
                   -> HelperResult {
-                out.write(&handlebars::html_escape(&f(h)?))?;
+                out.write(&handlebars::html_escape(&crate::render::neutralise(&f(h)?)))?;
                 Ok(())
             },
         ),

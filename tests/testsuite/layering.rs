@@ -22,6 +22,7 @@ const LAYERS: &[(&str, &[&str])] = &[
             "limits",
             "activities",
             "csv_out",
+            "text",
             "progress",
             "exit_code",
         ],
@@ -38,6 +39,11 @@ const SAME_LAYER: &[(&str, &str, &str)] = &[
     ("yaml", "diag", "YAML errors are diagnostics"),
     ("yaml", "limits", "the YAML budget"),
     ("diag", "limits", "a cap on repeated diagnostics"),
+    (
+        "csv_out",
+        "text",
+        "CSV cells escape the invisible characters the reports drop",
+    ),
 ];
 
 /// Modules only the commands may use: exit codes are chosen by commands alone.

@@ -594,7 +594,7 @@ fn a_script_tag_as_a_name_is_escaped_in_html_and_plain_text_in_pdf() {
     let name = "<script>alert(1)</script>";
     let html = run.read("participants/SG-900.html");
     assert_self_contained("SG-900.html", &html);
-    assert!(html.contains("<h1>&lt;script&gt;alert(1)&lt;/script&gt;</h1>"));
+    assert!(html.contains("<h1><bdi>&lt;script&gt;alert(1)&lt;/script&gt;</bdi></h1>"));
     assert!(html.contains("<title>&lt;script&gt;alert(1)&lt;/script&gt; · "));
     assert!(!html.contains(name));
     let pages = pdf_pages(&run.bytes("participants/SG-900.pdf"));
@@ -1139,4 +1139,186 @@ fn an_element_outside_the_pdf_subset_fails_the_run_naming_template_and_element()
     );
     assert!(out.stderr.contains("<h4>"), "{}", out.stderr);
     assert!(!prog.dir.join("reports/participants").exists());
+}
+
+/// A woman of 152 cm at BMI 18.7 still losing 0.7 kg a week (no other flag) was told "Holding
+/// your new weight … If you would like to stop losing, eating about … more than now is a safe
+/// first step", with no caution. Both formats now hold every suggestion and ask her to see a
+/// licensed clinician, with no wording that reads as encouragement to go on losing.
+#[test]
+fn a_low_bmi_still_losing_is_sent_to_a_clinician_in_html_and_pdf() {
+    let prog = ProgramTest::fixture("report-small");
+    let p = prog.dir.join("participants/SG-007");
+    let h2 = (60.0 * 2.54 / 100.0_f64).powi(2);
+    let end = 18.7 * h2;
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    let days = 182;
+    let mut w = String::from("date,weight,unit\n");
+    for i in (0..=days).step_by(2) {
+        let kg = end + 0.7 * f64::from(days - i) / 7.0 + if i % 4 == 0 { 0.2 } else { -0.2 };
+        let day = start + chrono::Duration::days(i64::from(i));
+        w.push_str(&format!("{day},{kg:.1},kg\n"));
+    }
+    std::fs::write(p.join("weights.csv"), w).unwrap();
+    // Logged intake above the floor, so no intake flag stands in for the BMI caution.
+    let mut intake = String::from("date,kcal\n");
+    for i in (0..=days).step_by(3) {
+        let day = start + chrono::Duration::days(i64::from(i));
+        intake.push_str(&format!("{day},1450\n"));
+    }
+    std::fs::write(p.join("intake.csv"), intake).unwrap();
+    let out = prog.run(&[
+        "run",
+        "{dir}",
+        "--only",
+        "SG-007",
+        "--period",
+        "2026-09",
+        "--as-of",
+        "2026-10-01",
+        "--out",
+        "{dir}/o",
+    ]);
+    assert!(out.code <= 1, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-007.html")).unwrap();
+    let mut texts = vec![("html", html)];
+    if let Some(pdf) = pdftotext(&prog.dir.join("o/participants/SG-007.pdf")) {
+        texts.push(("pdf", pdf.split_whitespace().collect::<Vec<_>>().join(" ")));
+    }
+    for (what, t) in &texts {
+        assert!(t.contains("Current BMI is about 18.7"), "{what}: {t:.4000}");
+        assert!(t.contains("still going down"), "{what}");
+        assert!(
+            t.contains("not advised without a licensed clinician"),
+            "{what}"
+        );
+        assert!(t.contains("Before any change"), "{what}");
+        for encouraging in [
+            "Holding your new weight",
+            "If you would like to stop losing",
+            "keep going",
+            "safe first step",
+        ] {
+            assert!(!t.contains(encouraging), "{what}: `{encouraging}`");
+        }
+    }
+}
+
+/// A name with a right-to-left override (U+202E), an isolate, a direction mark and an escape
+/// sequence went into the HTML and PDF as written: "Dana\u{202e}exe.txt" shows as "Danatxt.exe",
+/// and the override reorders the text after it. Each is dropped where text enters the report
+/// (the template escaping, the charts, the PDF), and the name is isolated in `<bdi>`.
+#[test]
+fn invisible_direction_and_control_characters_in_names_are_neutralised() {
+    let prog = ProgramTest::fixture("report-small");
+    let p = prog.dir.join("participants/SG-900/profile.yaml");
+    let text = std::fs::read_to_string(&p).unwrap();
+    let text = text
+        .replace(
+            "name: \"<script>alert(1)</script>\"",
+            "name: \"Dana\\u202Eexe.txt\\u2066 Okafor\\u200F\\e[2J\\u0085\"",
+        )
+        .replace("site: North Office", "site: \"North\\u202B Office\"");
+    std::fs::write(&p, text).unwrap();
+    let out = prog.run(&[
+        "run", "{dir}", "--only", "SG-900", "--as-of", AS_OF, "--out", "{dir}/o",
+    ]);
+    assert!(out.code <= 1, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-900.html")).unwrap();
+    let bad = |t: &str| {
+        t.chars()
+            .find(|&c| {
+                matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}' | '\u{200e}' | '\u{200f}')
+                    || (c.is_control() && !matches!(c, '\t' | '\n' | '\r'))
+            })
+            .map(|c| format!("U+{:04X}", c as u32))
+    };
+    assert_eq!(bad(&html), None);
+    assert!(
+        html.contains("<h1><bdi>Danaexe.txt Okafor[2J</bdi></h1>"),
+        "{}",
+        &html[html.find("<h1>").unwrap()..][..120]
+    );
+    assert!(html.contains("<title>Danaexe.txt Okafor[2J · "));
+    assert!(html.contains("North Office"));
+    if let Some(pdf) = pdftotext(&prog.dir.join("o/participants/SG-900.pdf")) {
+        assert_eq!(bad(&pdf.replace('\x0c', "")), None);
+        assert!(pdf.contains("Danaexe.txt Okafor[2J"), "{pdf:.300}");
+    }
+}
+
+/// A name in a script the PDF's font lacks ("王小明") printed as three empty boxes, and a
+/// reader copying the text got nothing. The PDF now names the participant by id, the HTML keeps
+/// the name, and the run log says which characters and which file.
+#[test]
+fn a_name_the_pdf_font_cannot_show_is_replaced_by_the_id_with_a_warning() {
+    let prog = ProgramTest::fixture("report-small");
+    let p = prog.dir.join("participants/SG-900/profile.yaml");
+    let text = std::fs::read_to_string(&p).unwrap();
+    std::fs::write(
+        &p,
+        text.replace("name: \"<script>alert(1)</script>\"", "name: \"王小明\"")
+            .replace("team: Office", "team: \"東京 Office\""),
+    )
+    .unwrap();
+    let out = prog.run(&[
+        "run", "{dir}", "--only", "SG-900", "SG-007", "--as-of", AS_OF, "--out", "{dir}/o",
+    ]);
+    assert!(out.code <= 1, "{}", out.stderr);
+    assert!(
+        out.stderr.contains(
+            "SG-900: participants/SG-900/profile.yaml: the PDF's font has no glyph for `王` U+738B, `小` U+5C0F, `明` U+660E"
+        ),
+        "{}",
+        out.stderr
+    );
+    // Other text the font lacks is named too (it shows as boxes in the PDF).
+    assert!(
+        out.stderr.contains(
+            "SG-900: the PDF's font has no glyph for `東` U+6771, `京` U+4EAC in the report's text"
+        ),
+        "{}",
+        out.stderr
+    );
+    // Only the participant whose text cannot be shown.
+    assert!(!out.stderr.contains("SG-007: "), "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-900.html")).unwrap();
+    assert!(html.contains("<h1><bdi>王小明</bdi></h1>"));
+    let pdf = std::fs::read(prog.dir.join("o/participants/SG-900.pdf")).unwrap();
+    let pages = pdf_pages(&pdf);
+    assert!(
+        pages[0].starts_with("Participant SG-900"),
+        "{}",
+        &pages[0][..100]
+    );
+    assert!(!pages.concat().contains('王'));
+    // A name the font shows is kept in the PDF.
+    let pages = pdf_pages(&std::fs::read(prog.dir.join("o/participants/SG-007.pdf")).unwrap());
+    assert!(
+        pages[0].starts_with("Mei-Ling Castellanos"),
+        "{}",
+        &pages[0][..100]
+    );
+}
+
+/// Every value a template prints goes through one escaping, which drops invisible direction and
+/// control characters whatever input they came from (a session or activity name, a note of an
+/// external module), and the text helpers too.
+#[test]
+fn template_escaping_drops_invisible_direction_characters() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("participant.html.hbs"),
+        "<p>{{note}}</p><p>{{date note}}</p>",
+    )
+    .unwrap();
+    let set = TemplateSet::with_overrides(Some(dir.path())).unwrap();
+    let ctx = serde_json::json!({ "note": "Walk \u{202e}<b>x</b>\u{2066}\u{200f}\u{1b}[31m" });
+    let html = set
+        .render("participant.html", &ctx, serde_json::Map::new())
+        .unwrap();
+    assert_eq!(
+        html,
+        "<p>Walk &lt;b&gt;x&lt;/b&gt;[31m</p><p>Walk &lt;b&gt;x&lt;/b&gt;[31m</p>"
+    );
 }

@@ -7,8 +7,10 @@
 //!   weigh-in); age at enrolment; body fat from the profile (`measured`) or Jackson et al. 2002
 //!   (`jackson_2002`); RMR₀ by the chosen equation; maintenance intake EI₀ = RMR₀ × `base_pal`.
 //!   Logged exercise is treated as *added* by the program on top of `base_pal`.
-//! - **Expenditure** (static): TDEE = RMR(current weight, current age) × `base_pal` + net
-//!   activity (MET − 1)·kg·h per day. Net, because `base_pal` already counts resting energy for
+//! - **Expenditure** (static): TDEE = RMR(current weight, current age) × PAL + net
+//!   activity (MET − 1)·kg·h per day, PAL the person's activity level after the food logs and
+//!   the weight trend (the prior `base_pal` without them); the weekly table's expenditure is
+//!   this, week by week. Net, because the PAL already counts resting energy for
 //!   those minutes.
 //! - **Implied intake** (Hall & Chow 2011): EI = EI₀ + ε·(BW − BW₀) + ρ·dBW/dt + A/(1 − β),
 //!   with BW the mean trend level and dBW/dt the mean trend slope over the last `window_days` of
@@ -84,6 +86,14 @@ const INTAKE_DRIFT_PER_DAY: f64 = 3.0;
 /// stop and regain; with all of it, 85 % (seed 20261202; 92.5 → 96.2 % over everyone;
 /// VALIDATION.md).
 const FADE_SHARE: f64 = 1.0;
+/// Default of `max_sustained_intake_x_rmr`: the most energy a person can take in and absorb,
+/// sustained over weeks, as a multiple of resting energy: the alimentary limit on sustained energy budgets, about 2.5 × BMR for efforts of
+/// weeks or more (Thurber et al. 2019, Sci Adv 5:eaaw0341; from memory). An implied intake
+/// above it is a rise the gut could not have supplied: a step in the weigh-ins (another scale,
+/// clothing, a typing error) or fluid, not tissue. Applied to the 28-day window and, as a
+/// program choice, to each week of the weekly table (a week's implied intake is read off the
+/// smoothed trend, so it is no single feast either).
+pub(crate) const MAX_SUSTAINED_INTAKE_X_RMR: f64 = 2.5;
 /// Smallest BMI a reported steady state or forecast may reach: the linearised energy balance
 /// is not a model of starvation (program choice; BMI 16 is the WHO threshold of severe
 /// thinness).
@@ -96,6 +106,7 @@ struct Settings {
     underreport_prior: f64,
     underreport_sd: f64,
     window_days: u64,
+    max_intake_x_rmr: f64,
     target_loss: f64,
     max_safe_loss: f64,
     floor_female: f64,
@@ -125,6 +136,8 @@ impl Settings {
                 / 100.0)
                 .max(0.001),
             window_days: ctx.setting_f64("window_days", 28.0).round().max(1.0) as u64,
+            max_intake_x_rmr: ctx
+                .setting_f64("max_sustained_intake_x_rmr", MAX_SUSTAINED_INTAKE_X_RMR),
             target_loss: ctx.setting_f64("target_loss_kg_per_week", 0.5),
             max_safe_loss: ctx.setting_f64("max_safe_loss_kg_per_week", 1.0),
             floor_female: ctx.setting_f64("intake_floor_female", 1200.0),
@@ -323,6 +336,8 @@ struct Person<'a> {
     model: HallModel,
     lin: LinearisedModel,
     trend: Trend,
+    /// `max_sustained_intake_x_rmr` (see [`MAX_SUSTAINED_INTAKE_X_RMR`]).
+    max_intake_x_rmr: f64,
 }
 
 impl Person<'_> {
@@ -443,6 +458,21 @@ impl Person<'_> {
             / self.lin.rho
     }
 
+    /// Whether an implied intake `intake` at body weight `bw` on day `d` can be energy balance
+    /// at all, and if not why: below zero (a fall faster than eating nothing at all gives) or
+    /// above the most a person can take in over weeks (`max_sustained_intake_x_rmr` ×
+    /// resting energy). The one test for the window, the weekly table and the plateau table.
+    fn implausible(&self, bw: f64, d: NaiveDate, intake: f64) -> Option<Unexplained> {
+        let ceiling = self.max_intake_x_rmr * self.rmr_at(bw, d);
+        if intake < 0.0 {
+            Some(Unexplained::Fall)
+        } else if intake > ceiling {
+            Some(Unexplained::Rise { intake, ceiling })
+        } else {
+            None
+        }
+    }
+
     fn floor(&self, s: &Settings) -> f64 {
         match self.sex {
             Sex::Female => s.floor_female,
@@ -509,15 +539,28 @@ pub(crate) fn run(
     p.lin = LinearisedModel::from_baseline(start.bw0, start.fm0, start.rmr0, pal_post);
 
     let cur = current_state(ctx, &s, &p, &baseline, trend_out.is_none(), start.bw0);
-    if cur.unexplained {
+    if let Some(why) = cur.unexplained {
+        let what = match why {
+            Unexplained::Fall => "fell faster than eating nothing at all would explain. A \
+                                  change of scale or clothing, a mistyped weigh-in or a shift \
+                                  in body water is more likely"
+                .to_string(),
+            Unexplained::Rise { intake, ceiling } => format!(
+                "rose faster than food can build body tissue: it would take about {:.0} kcal a \
+                 day, more than a person can take in and absorb for weeks on end (about {:.1} \
+                 times resting energy, here about {ceiling:.0} kcal a day). A change of scale \
+                 or clothing, a mistyped weigh-in or fluid is more likely",
+                intake.round(),
+                s.max_intake_x_rmr
+            ),
+        };
         out.push_flag(
             EnergyFlag::UnexplainedWeightChange.as_str(),
             FlagSeverity::Notice,
             format!(
-                "Over the last {} days the weight trend fell faster than eating nothing at all \
-                 would explain. A change of scale or clothing, a mistyped weigh-in or a shift \
-                 in body water is more likely; please check the recent weigh-ins. The intake \
-                 implied by the weight trend, the forecast and the options are not shown.",
+                "Over the last {} days the weight trend {what}; please check the recent \
+                 weigh-ins. The intake implied by the weight trend, what it says about the \
+                 food logs, the forecast and the options are not shown.",
                 s.window_days
             ),
         );
@@ -537,8 +580,7 @@ pub(crate) fn run(
     push_forecast(&mut out, &p, &start, fc);
 
     // After a withdrawal there are no habits to estimate: the weekly table stops there.
-    out.tables
-        .push(weekly_table(&p, &s, enrolled, withdrew_cut));
+    out.tables.push(weekly_table(&p, enrolled, withdrew_cut));
     out.tables
         .push(options_table(&p, &s, cur.bw, cur.slope, cur.implied));
     out.tables.push(plateau_table(&p, &s, enrolled));
@@ -614,6 +656,7 @@ fn start<'a>(
         model: HallModel::new(bw0, fm0, rmr0, s.base_pal),
         lin: LinearisedModel::from_baseline(bw0, fm0, rmr0, s.base_pal),
         trend,
+        max_intake_x_rmr: s.max_intake_x_rmr,
     };
     Some((
         person,
@@ -642,13 +685,23 @@ struct Current {
     logged_days: usize,
     implied: Option<Band>,
     /// The trend's change over the window is faster than any intake of zero or more can
-    /// explain (`slope` and `implied` are then withheld).
-    unexplained: bool,
+    /// explain, or would need more than a person can take in (`slope` and `implied` are then
+    /// withheld).
+    unexplained: Option<Unexplained>,
     tdee: f64,
     underreport: Option<Band>,
     /// SD of the current energy balance without the baseline requirement (it cancels in
     /// forecasts), kcal/d.
     balance_sd: f64,
+}
+
+/// Why an implied intake is not energy balance.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Unexplained {
+    /// Below zero: a fall faster than eating nothing at all gives.
+    Fall,
+    /// Above the most a person can take in and absorb over weeks (kcal/d, both).
+    Rise { intake: f64, ceiling: f64 },
 }
 
 /// SD of a slope from its 95 % band.
@@ -719,11 +772,12 @@ fn current_state(
         }
     });
     // An implied intake below zero is a weight change faster than eating nothing at all could
-    // give: a step in the weigh-ins (another scale, clothing, a typing error) or a fluid shift,
-    // not energy balance. Nothing is read from it: no implied intake, balance, forecast or
-    // options, and the caller says why.
-    let unexplained = implied.is_some_and(|i| i.value < 0.0);
-    let (slope, implied, balance_sd) = if unexplained {
+    // give; one above the most a person can take in over weeks, a rise faster than food could
+    // supply: a step in the weigh-ins (another scale, clothing, a typing error) or a fluid
+    // shift, not energy balance. Nothing is read from it: no implied intake, balance,
+    // under-reporting, forecast or options, and the caller says why.
+    let unexplained = implied.and_then(|i| p.implausible(bw_window, to, i.value));
+    let (slope, implied, balance_sd) = if unexplained.is_some() {
         (None, None, 0.0)
     } else {
         (slope, implied, balance_sd)
@@ -750,10 +804,13 @@ fn current_state(
         }),
         (None, Some(i), Some(l)) if logged_window_days >= MIN_LOGGED_DAYS && i.value > 0.0 => {
             let pct = |x: f64| 100.0 * (1.0 - l / x.max(1.0));
+            // The share missing grows with the implied intake: its lower bound is the implied
+            // intake's lower bound (the two were swapped, which put the lower bound above the
+            // upper and stopped the module).
             Some(Band {
                 value: pct(i.value),
-                lower: i.upper.map(pct),
-                upper: i.lower.map(pct),
+                lower: i.lower.map(pct),
+                upper: i.upper.map(pct),
             })
         }
         _ => None,
@@ -1155,7 +1212,7 @@ fn push_empty(out: &mut ModuleOutput, s: &Settings) {
 
 /// One row per week from enrolment to the end of the period (weeks start on the enrolment
 /// weekday; the last week may be short).
-fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate) -> Table {
+fn weekly_table(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate) -> Table {
     let mut t = empty_table::<WeekEnergyRow>(names::WEEKLY_ENERGY, WEEKLY_ENERGY_LABEL);
     // Monday-based weeks, like the adherence module's, so a report shows one week grid; the
     // first week starts at enrolment and the last ends at the period end.
@@ -1168,13 +1225,17 @@ fn weekly_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate, to: NaiveDate
         let bw = mean_band(&p.trend.level, ws, we)
             .map(|b| b.value)
             .or_else(|| p.weight_on(we));
-        let expenditure = bw.map(|w| p.rmr_at(w, ws) * s.base_pal + p.activity_kcal(ws, we, w));
+        // The person's activity level (after the logs and the trend), as the summary's
+        // expenditure uses: with the prior `base_pal` the weeks showed a different energy use
+        // from the summary's for the same days.
+        let expenditure = bw.map(|w| p.rmr_at(w, ws) * p.model.pal + p.activity_kcal(ws, we, w));
         let (logged, _) = p.logged(ws, we);
         let implied = match (bw, mean_band(&p.trend.slope, ws, we)) {
-            // Below zero the week's change is not energy balance (see `current_state`).
+            // Below zero or above what a person can take in, the week's change is not energy
+            // balance (see `current_state`).
             (Some(w), Some(sl)) => {
                 Some(p.implied_intake(w, sl.value, p.activity_met_hours(ws, we)))
-                    .filter(|x| *x >= 0.0)
+                    .filter(|x| p.implausible(w, we, *x).is_none())
             }
             _ => None,
         };
@@ -1443,7 +1504,9 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
                 sd_of(&sl),
             )),
             _ => None,
-        };
+        }
+        // An intake that cannot be energy balance is no evidence of a cause (`current_state`).
+        .filter(|d| p.implausible(d.1, during_to, d.0).is_none());
         // Early window.
         let d7 = day_after(enrolled, 7);
         let d34 = day_after(enrolled, 34);
@@ -1470,6 +1533,7 @@ fn plateau_table(p: &Person<'_>, s: &Settings, enrolled: NaiveDate) -> Table {
                         p.implied_intake(w.value, sl.value, met)
                     };
                     Some((i, w.value, sl.value, sd_of(&sl)))
+                        .filter(|e| p.implausible(e.1, e_to, e.0).is_none())
                 }
                 _ => None,
             }

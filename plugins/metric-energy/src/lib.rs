@@ -92,6 +92,16 @@ impl MetricModule for EnergyModule {
                 40.0,
                 "Prior SD of that share, percentage points",
             ),
+            SettingSpec::number(
+                "max_sustained_intake_x_rmr",
+                compute::MAX_SUSTAINED_INTAKE_X_RMR,
+                "",
+                1.5,
+                6.0,
+                "Most a person can take in for weeks on end, as a multiple of resting energy; an \
+                 implied intake above it is read as a step in the weigh-ins or fluid, not tissue \
+                 (about 2.5: Thurber et al. 2019; raise it for a program of endurance athletes)",
+            ),
             SettingSpec {
                 name: "window_days".into(),
                 kind: SettingKind::Integer,
@@ -313,7 +323,7 @@ impl MetricModule for EnergyModule {
                 "unexplained_weight_change",
                 "flag",
                 "",
-                "Weight fell faster than a zero intake explains",
+                "Weight changed faster than energy balance explains",
             ),
         ];
         ModuleSpec {

@@ -114,8 +114,8 @@ code_enum! {
         LogsInconsistentWithTrend = "logs_inconsistent_with_trend" => "Logged intake far from implied",
         /// Logged intake below the intake floor.
         LowLoggedIntake = "low_logged_intake" => "Logged intake below the intake floor",
-        /// Weight fell faster than a zero intake explains.
-        UnexplainedWeightChange = "unexplained_weight_change" => "Weight fell faster than a zero intake explains",
+        /// Weight changed faster than energy balance explains (a fall beyond a zero intake, a rise beyond the most a person can take in).
+        UnexplainedWeightChange = "unexplained_weight_change" => "Weight changed faster than energy balance explains",
     }
 }
 

@@ -38,7 +38,12 @@
 //! * `fast_gain` (clinical): the same test as `fast_loss` on a rise: faster than
 //!   `fast_loss_kg_per_week` over `fast_loss_span_days` in a row, ending in the period (a change
 //!   of scale or clothing, a mistyped weigh-in, or fluid, more often than tissue).
-//! * `low_bmi` (clinical): current BMI in the WHO underweight class (< 18.5 kg/m²).
+//! * `low_bmi` (clinical): current BMI in the WHO underweight class (< 18.5 kg/m²), or below
+//!   `low_bmi_losing_below` (20 kg/m²) while the weight trend is still falling (the trend's
+//!   status is `losing`, or its slope's whole 95 % interval is below zero). BMI 18.5–20 is the
+//!   band the Malnutrition Universal Screening Tool already scores as a risk, and weight lost
+//!   on top of it adds to the score (BAPEN 2003, MUST; from memory); a report must not read as
+//!   encouragement to go on losing there.
 //! * `lab_diabetes_range` (clinical) / `lab_prediabetes_range` (notice): judged on the latest
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
@@ -75,7 +80,7 @@ pub const MODULE_ID: &str = "outcomes";
 pub mod view;
 
 use cohortpress_metric_api::view::{ModuleView, TableRow};
-use cohortpress_metric_trend::view::TrendView;
+use cohortpress_metric_trend::view::{Status, TrendView};
 use view::{
     BmiCategory, CurrentWeightSource, LABS_LABEL, LabCategory, LabRow, MILESTONES_LABEL,
     MilestoneRow, OutcomesFlag, WeightChangeCategory, names,
@@ -429,7 +434,8 @@ impl MetricModule for OutcomesModule {
                 values in both common units with their categories (ADA Standards of Care 2025 §2 \
                 for glucose and HbA1c, HbA1c NGSP/IFCC master equation, ADAG estimated average \
                 glucose, WHO 2008 waist cut points), and flags for clinician review: sustained \
-                fast loss, low or very low logged intake, BMI under 18.5, lab values in the \
+                fast loss, low or very low logged intake, BMI under 18.5 (or under 20 while \
+                still losing), lab values in the \
                 prediabetes or diabetes range, and a medication review for people taking \
                 glucose-lowering medicine."
                 .into(),
@@ -468,6 +474,15 @@ impl MetricModule for OutcomesModule {
                     0.1,
                     5.0,
                     "trend loss rate above which sustained loss is flagged (NIH/NHLBI 1998)",
+                ),
+                SettingSpec::number(
+                    "low_bmi_losing_below",
+                    20.0,
+                    "kg/m²",
+                    18.5,
+                    25.0,
+                    "BMI below which a weight trend that is still falling is flagged for a \
+                     clinician (MUST, BAPEN 2003: BMI 18.5–20 scores a malnutrition risk)",
                 ),
                 SettingSpec {
                     name: "fast_loss_span_days".into(),
@@ -574,7 +589,7 @@ impl MetricModule for OutcomesModule {
                     OutcomesFlag::LowBmi.as_str(),
                     "flag",
                     "",
-                    "current BMI under 18.5",
+                    "current BMI under 18.5, or under low_bmi_losing_below while the trend still falls",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::LabDiabetesRange.as_str(),
@@ -640,7 +655,7 @@ impl MetricModule for OutcomesModule {
         let fast = push_fast_loss_flag(&mut output, ctx, &w.levels);
         push_fast_gain_flag(&mut output, ctx, &w.levels);
         let low_intake = push_intake_flags(&mut output, ctx, data);
-        push_low_bmi_flag(&mut output, bmi1);
+        push_low_bmi_flag(&mut output, ctx, bmi1, &w);
         push_lab_flags(&mut output, &labs, profile.sex);
         if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG) && (fast || low_intake) {
             push_medication_flag(&mut output, fast, low_intake);
@@ -677,6 +692,9 @@ struct Weights {
     levels: Vec<(NaiveDate, f64)>,
     /// The trend's slope, kg/week, when the trend module gave one.
     trend_rate: Option<f64>,
+    /// Whether the trend is still falling: status `losing`, or the slope's whole 95 %
+    /// interval below zero.
+    trend_falling: bool,
 }
 
 impl Weights {
@@ -721,6 +739,9 @@ impl Weights {
             _ => raw.clone(),
         };
         let trend_rate = trend.as_ref().and_then(|t| t.slope_kg_per_week.value);
+        let trend_falling = trend.as_ref().is_some_and(|t| {
+            t.status == Status::Losing || t.slope_kg_per_week.upper.is_some_and(|u| u < 0.0)
+        });
         Weights {
             raw,
             w0,
@@ -730,6 +751,7 @@ impl Weights {
             source,
             levels,
             trend_rate,
+            trend_falling,
         }
     }
 }
@@ -1012,11 +1034,18 @@ fn push_intake_flags(
     }
 }
 
-/// The `low_bmi` flag: current BMI in the WHO underweight class.
-fn push_low_bmi_flag(output: &mut ModuleOutput, bmi1: Option<f64>) {
-    if let Some(b) = bmi1
-        && who_bmi_class(b) == BmiCategory::Underweight
-    {
+/// The `low_bmi` flag: current BMI in the WHO underweight class, or below
+/// `low_bmi_losing_below` while the trend still falls (see the module docs).
+fn push_low_bmi_flag(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    bmi1: Option<f64>,
+    w: &Weights,
+) {
+    let Some(b) = bmi1 else {
+        return;
+    };
+    if who_bmi_class(b) == BmiCategory::Underweight {
         output.push_flag(
             OutcomesFlag::LowBmi.as_str(),
             FlagSeverity::Clinical,
@@ -1024,6 +1053,25 @@ fn push_low_bmi_flag(output: &mut ModuleOutput, bmi1: Option<f64>) {
                 "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
                      normal range (WHO). Further weight loss should be reviewed with a \
                      licensed clinician."
+            ),
+        );
+        return;
+    }
+    let near = ctx.setting_f64("low_bmi_losing_below", 20.0);
+    if b < near && w.trend_falling {
+        let rate = w
+            .trend_rate
+            .filter(|r| *r < 0.0)
+            .map(|r| format!(" (about {} a week)", kg_lb(-r)))
+            .unwrap_or_default();
+        output.push_flag(
+            OutcomesFlag::LowBmi.as_str(),
+            FlagSeverity::Clinical,
+            format!(
+                "Current BMI is about {b:.1} kg/m², close to 18.5, the lower limit of the \
+                 normal range (WHO), and the weight trend is still going down{rate}. Losing \
+                 more at this weight is not advised without a licensed clinician: please \
+                 see one about the loss before going on."
             ),
         );
     }

@@ -20,7 +20,7 @@ use cohortpress_metric_outcomes::{
     OutcomesModule, bmi, eag_mg_dl, fasting_glucose_category, hba1c_category, waist_category,
     weight_change_category, who_bmi_category,
 };
-use cohortpress_metric_trend::view::TrendView;
+use cohortpress_metric_trend::view::{Status, TrendView};
 use std::collections::BTreeMap;
 
 // ---------------------------------------------------------------------------------------------
@@ -559,6 +559,65 @@ fn low_bmi_flag() {
     // 18.5 exactly (53.4665 kg at 1.70 m) is not low.
     p.weights[1] = weigh(day(14), 18.5 * 2.89);
     assert!(run(&ctx(day(0), day(14), None), &p).flags.is_empty());
+}
+
+/// A man of 173 cm at BMI 18.7 losing 0.7 kg a week got "Holding your new weight … if you
+/// would like to stop losing" and no caution. Below BMI 20 (MUST, BAPEN 2003) a trend that is
+/// still falling raises the clinical `low_bmi` flag (which holds every suggestion); the same
+/// BMI on a steady trend, or a falling trend above 20, does not.
+#[test]
+fn low_bmi_flag_near_the_floor_while_still_losing() {
+    let h2 = 1.73 * 1.73;
+    let mut p = participant(Sex::Male, 173.0);
+    let end = 18.7 * h2;
+    p.weights = (0..=28)
+        .step_by(2)
+        .map(|k| weigh(day(k), end + 0.1 * (28 - k) as f64))
+        .collect();
+    // The trend says `losing`, as the real module does for such a record.
+    let falling = |end: f64, slope: f64| {
+        let out = trend_output(28, 28, slope, move |k| end + 0.1 * (28 - k) as f64);
+        let mut t = TrendView::from_output(&out).unwrap();
+        t.status = Status::Losing;
+        t.to_output()
+    };
+    let out = run(&ctx(day(0), day(28), Some(falling(end, -0.7))), &p);
+    assert_abs_diff_eq!(
+        out.scalar("bmi_current_kg_m2").unwrap(),
+        18.7,
+        epsilon = 1e-9
+    );
+    assert_eq!(codes(&out), vec!["low_bmi"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    let m = &out.flags[0].message;
+    assert!(m.contains("about 18.7 kg/m²"), "{m}");
+    assert!(
+        m.contains("still going down (about 0.7 kg (1.5 lb) a week)"),
+        "{m}"
+    );
+    assert!(m.contains("licensed clinician"), "{m}");
+    // The same BMI, level: no flag.
+    let steady = trend_output(28, 28, 0.0, move |_| end);
+    assert!(
+        run(&ctx(day(0), day(28), Some(steady)), &p)
+            .flags
+            .is_empty()
+    );
+    // BMI 20.5 falling: no flag (above the setting); with the setting at 21, flagged.
+    let end2 = 20.5 * h2;
+    let t = falling(end2, -0.7);
+    assert!(
+        run(&ctx(day(0), day(28), Some(t.clone())), &p)
+            .flags
+            .is_empty()
+    );
+    let c = ctx_with(
+        day(0),
+        day(28),
+        Some(t),
+        serde_json::json!({ "low_bmi_losing_below": 21.0 }),
+    );
+    assert_eq!(codes(&run(&c, &p)), vec!["low_bmi"]);
 }
 
 fn lab(k: i64, test: LabTest, value: f64, unit: &str, as_written: f64) -> LabResult {

@@ -51,6 +51,8 @@ pub struct TrendModule;
 /// skipped (program configuration; 4 is far in the tail of a normal innovation, about 1 in
 /// 16 000, so clean data almost never lose a day).
 pub const DEFAULT_OUTLIER_Z: f64 = 4.0;
+/// A screen limit no standardized innovation reaches: the fit without an outlier screen.
+const NO_SCREEN_Z: f64 = 1e6;
 
 fn setting(
     name: &str,
@@ -639,22 +641,34 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         .map(|d| (d.0 - first).num_days() as f64)
         .collect();
     let obs_y: Vec<Option<f64>> = days.iter().map(|d| Some(d.1)).collect();
-    let fit = estimate_params(&obs_t, &obs_y, settings.outlier_z);
-
     let mut grid_y: Vec<Option<f64>> = vec![None; grid_len];
     for (t, y) in obs_t.iter().zip(&obs_y) {
         grid_y[*t as usize] = *y;
     }
     let grid_t: Vec<f64> = (0..grid_len).map(|i| i as f64).collect();
-    let run = kalman_filter(
-        &grid_t,
-        &grid_y,
-        fit.params,
-        StatePrior::diffuse(days[0].1, DIFFUSE_KAPPA),
-        Some(OutlierScreen {
-            z: settings.outlier_z,
-        }),
-    );
+    let fit_and_filter = |z: f64| {
+        let fit = estimate_params(&obs_t, &obs_y, z);
+        let run = kalman_filter(
+            &grid_t,
+            &grid_y,
+            fit.params,
+            StatePrior::diffuse(days[0].1, DIFFUSE_KAPPA),
+            Some(OutlierScreen { z }),
+        );
+        (fit, run)
+    };
+    let (mut fit, mut run) = fit_and_filter(settings.outlier_z);
+    // The screen is for a stray weigh-in among many. When it leaves out more than a quarter of
+    // the weigh-in days (at least two), it is the trend that is wrong, not the weigh-ins: with
+    // few weigh-ins the first two (which set the starting slope) can be a day apart, the
+    // screen then refuses everything after them, the noise estimated from what is left
+    // shrinks, and the trend runs off on two points (sample program, April 2026: SG-026 read
+    // as 53 kg, BMI 17.2, "−29.8 kg" while weighing about 82 kg; SG-005 as +17 kg). The fit is
+    // then made without the screen (a limit no innovation reaches; an infinite one would
+    // make the likelihood's capped term 0 × ∞), program choice of the quarter.
+    if run.outliers >= 2 && run.outliers * 4 > obs_y.len() {
+        (fit, run) = fit_and_filter(NO_SCREEN_Z);
+    }
     let sm = rts_smoother(run);
     let inflation = correlated_scatter_inflation(&sm);
     let mut settings = *settings;

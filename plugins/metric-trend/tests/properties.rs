@@ -619,3 +619,31 @@ fn a_fading_loss_is_dated_by_the_food_log_through_correlated_scatter() {
     // trend without the log as input dated 5 of 8 within ±14 days.
     assert!(hits >= 6, "onset errors (days) by seed: {errors:?}");
 }
+
+/// A first month of eight weigh-ins (sample program, SG-026, April 2026, in lb) whose first two,
+/// a day apart, differ by 4 lb: the outlier screen then refused six of the eight, the noise
+/// estimated from the two left shrank, and the trend ran on to 53 kg ("−29.8 kg", BMI 17.2)
+/// for a man weighing about 82 kg. A screen that refuses more than a quarter of the weigh-ins
+/// is not finding stray weigh-ins: the fit is made without it.
+#[test]
+fn a_screen_that_refuses_most_weigh_ins_is_not_used() {
+    let lb = 0.453_592_37;
+    let home: Vec<(i64, f64)> = [(0, 182.4), (1, 178.3), (6, 179.5), (11, 181.9), (12, 181.0)]
+        .iter()
+        .map(|&(d, w)| (d, w * lb))
+        .collect();
+    let clinic: Vec<(i64, f64)> = [(2, 180.7), (9, 183.3), (16, 179.5)]
+        .iter()
+        .map(|&(d, w)| (d, w * lb))
+        .collect();
+    let out = run_with_clinic(&home, &clinic, Some("clinic"), 18);
+    let current = out.scalar("current_weight_kg").unwrap();
+    // Every weigh-in lies between 178.3 and 183.3 lb (80.9–83.1 kg).
+    assert!((80.0..84.0).contains(&current), "current {current}");
+    assert_eq!(out.scalar("outliers_ignored"), Some(0.0));
+    // A single stray weigh-in among many is still screened out.
+    let mut many: Vec<(i64, f64)> = (0..40).map(|d| (d, 90.0 - 0.02 * d as f64)).collect();
+    many[20].1 = 99.0;
+    let out = run(&many, 40);
+    assert_eq!(out.scalar("outliers_ignored"), Some(1.0));
+}

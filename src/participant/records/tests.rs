@@ -533,3 +533,63 @@ fn median_by_selection_matches_the_sorted_definition() {
     assert_eq!(median(&mut [5.0]), 5.0);
     assert_eq!(median(&mut [70.0, 80.0]), 75.0);
 }
+
+#[test]
+fn lab_values_out_of_range_or_not_finite_are_named_as_numbers_not_units() {
+    // `1e400 %` was read as the number 1 with the unit `e400 %` ("unit not accepted").
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value\n2026-04-01,hba1c,1e400 %\n2026-04-02,hba1c,NaN %\n2026-04-03,hba1c,1e1 %\n2026-04-04,hba1c,5.7 %\n2026-04-05,blood_pressure,128/82 mmHg\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(v.len(), 3, "{v:?}");
+    assert_eq!(diags.len(), 3, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(2));
+    assert_eq!(diags[0].column, Some(3));
+    assert!(
+        diags[0]
+            .message
+            .starts_with("out-of-range number (not finite) in `value`"),
+        "{}",
+        diags[0]
+    );
+    assert_eq!(diags[0].found.as_deref(), Some("`1e400`"));
+    assert!(
+        diags[1]
+            .message
+            .starts_with("not a finite number in `value`"),
+        "{}",
+        diags[1]
+    );
+    assert!(
+        diags[2].message.starts_with("exponent notation in `value`"),
+        "{}",
+        diags[2]
+    );
+    assert!(diags.iter().all(|d| !d.message.contains("unit")));
+}
+
+#[test]
+fn an_empty_weights_file_is_an_error_naming_the_file() {
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none());
+    assert_eq!(diags.len(), 1);
+    assert_eq!(diags[0].severity, Severity::Error);
+    assert_eq!(diags[0].file, "participants/P1/weights.csv");
+    assert!(
+        diags[0].message.contains("the file is empty"),
+        "{}",
+        diags[0]
+    );
+}

@@ -805,6 +805,120 @@ fn a_loss_faster_than_zero_intake_gives_no_implied_intake() {
     );
 }
 
+/// The same step upwards: 8 kg up over three days (another scale, clothing) read as an implied
+/// intake of about 5,000 kcal/d with "under-reporting" and advice built on it. Above the most
+/// a person can take in over weeks (2.5 × resting energy) the module withholds the implied
+/// intake and everything read from it, says why, and shows no week above that limit; the same
+/// weigh-ins without the step still give an implied intake.
+#[test]
+fn a_rise_faster_than_food_can_supply_gives_no_implied_intake() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let step_at = n - 10;
+    let run_with = |step: f64, settings: serde_json::Value| {
+        let weights: Vec<f64> = (0..n)
+            .map(|i| match i {
+                i if i < step_at => 90.0,
+                i if i < step_at + 3 => 90.0 + step * (i + 1 - step_at) as f64 / 3.0,
+                _ => 90.0 + step,
+            })
+            .collect();
+        let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
+        data.weights = (0..n)
+            .step_by(2)
+            .map(|i| WeighIn {
+                date: day_after(enrolled, i as u64),
+                time: None,
+                weight: Mass::from_kg(weights[i]),
+                source: None,
+            })
+            .collect();
+        data.intake = (0..n as u64)
+            .map(|i| IntakeDay {
+                date: day_after(enrolled, i),
+                kcal: 1800.0,
+                carbs_g: None,
+                fat_g: None,
+                protein_g: None,
+                free_sugars_g: None,
+            })
+            .collect();
+        let mut c = ctx(enrolled, d("2027-06-30"), period, settings);
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, 0.4, 0.05, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    let run = |step: f64| run_with(step, serde_json::json!({}));
+    // With the limit raised (a program of endurance athletes) the same rise is read as intake.
+    let raised = run_with(
+        8.0,
+        serde_json::json!({ "max_sustained_intake_x_rmr": 6.0 }),
+    );
+    let i = raised.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!(i > 2.5 * raised.scalar("rmr_kcal_per_day").unwrap(), "{i}");
+    // Without the step: an ordinary implied intake, and the flag is not raised.
+    let steady = run(0.0);
+    assert!(steady.scalar("implied_intake_kcal_per_day").is_some());
+    assert!(steady.scalar("underreporting_percent").is_some());
+    assert!(
+        !steady
+            .flags
+            .iter()
+            .any(|f| f.code == "unexplained_weight_change")
+    );
+    let out = run(8.0);
+    for name in [
+        "implied_intake_kcal_per_day",
+        "implied_intake_lower_kcal_per_day",
+        "implied_intake_upper_kcal_per_day",
+        "energy_balance_kcal_per_day",
+        "intake_gap_kcal_per_day",
+        "underreporting_percent",
+        "forecast_weight_at_end_kg",
+    ] {
+        assert_eq!(out.scalar(name), None, "{name}");
+    }
+    let flag = out
+        .flags
+        .iter()
+        .find(|f| f.code == "unexplained_weight_change")
+        .expect("flag");
+    assert!(
+        flag.message.contains("rose faster than food can build"),
+        "{}",
+        flag.message
+    );
+    assert!(
+        !out.flags
+            .iter()
+            .any(|f| f.code == "logs_inconsistent_with_trend"),
+        "{:?}",
+        out.flags
+    );
+    // Expenditure falls back to resting × activity level + logged activity.
+    let rmr = out.scalar("rmr_kcal_per_day").unwrap();
+    let tdee = out.scalar("tdee_kcal_per_day").unwrap();
+    assert!(tdee > rmr && tdee < 2.5 * rmr, "{tdee} vs {rmr}");
+    let opt = out.table("options").unwrap();
+    assert_eq!(cell_num(opt, 0, "change_per_day"), None);
+    // No week shows an implied intake above 2.5 × resting energy (the step's weeks show none).
+    let weekly = out.table("weekly_energy").unwrap();
+    let mut withheld = 0;
+    for r in 0..weekly.rows.len() {
+        match cell_num(weekly, r, "implied_intake_kcal_per_day") {
+            Some(x) => assert!(x <= 2.5 * rmr * 1.05, "week {r}: {x}"),
+            None => withheld += 1,
+        }
+    }
+    assert!(withheld >= 1);
+}
+
 /// A woman of 165 cm at 46 kg (BMI 16.9) losing 0.4 kg a week: the forecast ran on to about
 /// 41 kg (BMI 15) with its band's lower edge lower still. Below BMI 16 (WHO severe thinness)
 /// no forecast is given, as no steady state is.
@@ -853,4 +967,105 @@ fn no_forecast_reaches_below_bmi_16() {
     let end = out.scalar_full("forecast_weight_at_end_kg").unwrap();
     assert!(end.lower.unwrap() > bmi16, "{end:?}");
     assert!(end.value.unwrap() < 90.0 - 0.4 * n as f64 / 7.0);
+}
+
+/// In a first fortnight (no two-week block of logs and trend for the person's own share yet) the share missing from
+/// the logs came from the window's logs with its bounds swapped: lower above upper, and the
+/// module stopped on it (sample program, SG-006 in April 2026).
+#[test]
+fn first_month_underreporting_has_its_bounds_in_order() {
+    let enrolled = d("2027-03-01");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-12"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let weights: Vec<f64> = (0..n).map(|i| 95.0 - 0.08 * i as f64).collect();
+    let mut data = data(profile(Sex::Male, 178.0, 50.0, enrolled));
+    data.weights = (0..n)
+        .map(|i| WeighIn {
+            date: day_after(enrolled, i as u64),
+            time: None,
+            weight: Mass::from_kg(weights[i]),
+            source: None,
+        })
+        .collect();
+    data.intake = (0..n as u64)
+        .map(|i| IntakeDay {
+            date: day_after(enrolled, i),
+            kcal: 1500.0,
+            carbs_g: None,
+            fat_g: None,
+            protein_g: None,
+            free_sugars_g: None,
+        })
+        .collect();
+    let mut c = ctx(enrolled, d("2027-08-31"), period, serde_json::json!({}));
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, &weights, 0.3, 0.03, &[]),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let s = out
+        .scalars
+        .iter()
+        .find(|s| s.name == "underreporting_percent")
+        .unwrap();
+    let (v, l, u) = (s.value.unwrap(), s.lower.unwrap(), s.upper.unwrap());
+    assert!(l <= v && v <= u, "{l} {v} {u}");
+    // Logged 1,500 against an implied intake above it: a share missing above zero.
+    let implied = out.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!(
+        (v - 100.0 * (1.0 - 1500.0 / implied)).abs() < 1e-6,
+        "{v} vs {implied}"
+    );
+}
+
+/// The weekly table's energy use was resting × the prior `base_pal` (1.6) + activity while the
+/// summary's used the person's own activity level: on one page the two disagreed for the same
+/// days (sample SG-010, September 2026: 2,155 in the summary, about 2,400 each week). The weeks
+/// now use the person's level: at a steady weight without activity, each full week's energy use
+/// is the summary's resting energy × `pal_estimate`.
+#[test]
+fn weekly_energy_use_uses_the_persons_activity_level() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-28"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let weights = vec![80.0; n];
+    let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
+    data.weights = (0..n)
+        .map(|i| WeighIn {
+            date: day_after(enrolled, i as u64),
+            time: None,
+            weight: Mass::from_kg(weights[i]),
+            source: None,
+        })
+        .collect();
+    // Steady weight on logs of 1,300 kcal/d: a lower activity level than the prior 1.6.
+    data.intake = (0..n as u64)
+        .map(|i| IntakeDay {
+            date: day_after(enrolled, i),
+            kcal: 1300.0,
+            carbs_g: None,
+            fat_g: None,
+            protein_g: None,
+            free_sugars_g: None,
+        })
+        .collect();
+    let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, &weights, 0.3, 0.02, &[]),
+    );
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let pal = out.scalar("pal_estimate").unwrap();
+    assert!((pal - 1.6).abs() > 0.05, "pal {pal}");
+    let rmr = out.scalar("rmr_kcal_per_day").unwrap();
+    let weekly = out.table("weekly_energy").unwrap();
+    let last = weekly.rows.len() - 1;
+    let e = cell_num(weekly, last, "expenditure_kcal_per_day").unwrap();
+    assert!((e - rmr * pal).abs() < 1.0, "{e} vs {rmr} × {pal}");
 }
