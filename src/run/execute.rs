@@ -329,8 +329,12 @@ pub fn finish(
         let headline = report::group::headline(&g, &format!("{period_from} to {period_to}"));
         g.releases = ledger.earlier_headlines(&program_id, &period_to);
         g.releases.push(headline.clone());
-        let group_ctx =
-            report::group_context(&plan.report_scope(), &g, summary.participants_with_errors);
+        // Who the group report leaves out: participants without a report (an unusable
+        // profile) and folders skipped by name. A participant with one unusable file is still
+        // reported and counted, so `participants_with_errors` (which counts them too, for the
+        // exit code) is not this number.
+        let left_out = summary.participants - summary.reported + summary.skipped_folders;
+        let group_ctx = report::group_context(&plan.report_scope(), &g, left_out);
         let group_files = report::render_group(templates, &group_ctx, &plan.formats)
             .map_err(|e| RunError::Render(e.to_string()))?;
         for (name, bytes) in group_files {

@@ -1,0 +1,83 @@
+//! What a careless (not hostile) user does to a program and its outputs, through the real
+//! binary: keeps files of their own in the output folder, leaves two folders for one person
+//! whose names differ in case, saves a file as "Unicode text" (UTF-16), and breaks one file of
+//! one participant while another's profile is missing.
+
+use crate::harness::{ProgramTest, tree_hashes};
+use std::fs;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+const AS_OF: &str = "2026-12-01";
+const BIN: &str = env!("CARGO_BIN_EXE_cohortpress");
+
+/// A fresh generated demo program of `n` participants without planted defects.
+fn demo(n: usize) -> ProgramTest {
+    let scratch = tempfile::Builder::new()
+        .prefix("cohortpress-demo-")
+        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
+        .unwrap();
+    let dir = scratch.path().join("p");
+    let out = Command::new(BIN)
+        .args(["demo-program", dir.to_str().unwrap(), "--no-defects"])
+        .args(["--participants", &n.to_string()])
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    ProgramTest::from_dir(&dir)
+}
+
+fn out_dir(t: &ProgramTest) -> PathBuf {
+    t.dir.parent().unwrap().join("out")
+}
+
+fn run(t: &ProgramTest, formats: &str) -> crate::harness::Outcome {
+    let out = out_dir(t);
+    t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        formats,
+        "--out",
+        out.to_str().unwrap(),
+    ])
+}
+
+/// The group report's sentence about participant folders it leaves out.
+fn left_out_note(out: &Path) -> String {
+    let html = fs::read_to_string(out.join("group/program.html")).unwrap();
+    html.split(['<', '>'])
+        .filter(|s| s.contains("could not be used because of input errors"))
+        .collect::<Vec<_>>()
+        .join(" / ")
+}
+
+#[test]
+fn the_group_report_names_only_the_participants_it_leaves_out() {
+    let t = demo(5);
+    let out = out_dir(&t);
+    // Two participants' intake files have no usable header: those files are left out, the
+    // participants are reported and counted.
+    for id in ["SG-002", "SG-003"] {
+        let intake = t.dir.join(format!("participants/{id}/intake.csv"));
+        let text = fs::read_to_string(&intake).unwrap();
+        let rest = text.split_once('\n').unwrap().1;
+        fs::write(&intake, format!("day,energy_x\n{rest}")).unwrap();
+    }
+    // One profile missing and one folder whose name is not an id: both left out.
+    fs::remove_file(t.dir.join("participants/SG-004/profile.yaml")).unwrap();
+    fs::create_dir(t.dir.join("participants/SG 9")).unwrap();
+    let o = run(&t, "html");
+    assert_eq!(o.code, 4, "{o:?}");
+    assert!(out.join("participants/SG-002.html").exists());
+    assert!(out.join("participants/SG-003.html").exists());
+    assert!(!out.join("participants/SG-004.html").exists());
+    // It said "3 participant folders could not be used … and are not counted here".
+    assert_eq!(
+        left_out_note(&out),
+        "2 participant folders could not be used because of input errors and are not counted here; the run&#x27;s data-quality list (metrics/data-quality.csv) names the problems."
+    );
+}
+
