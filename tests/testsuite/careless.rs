@@ -55,6 +55,49 @@ fn left_out_note(out: &Path) -> String {
 }
 
 #[test]
+fn files_of_someone_elses_in_an_output_folder_are_never_deleted() {
+    let t = demo(3);
+    let out = out_dir(&t);
+    assert_eq!(run(&t, "html").code, 0);
+    // Last month's group report kept beside this month's, and a note: the next run replaced the
+    // folder as a whole and deleted both.
+    fs::create_dir_all(out.join("archive")).unwrap();
+    fs::write(out.join("archive/2026-10-program.html"), b"kept").unwrap();
+    fs::write(out.join("group/notes.txt"), b"mine").unwrap();
+    let before = tree_hashes(&out);
+    let o = run(&t, "html");
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("`archive/2026-10-program.html`, `group/notes.txt`"),
+        "{}",
+        o.stderr
+    );
+    assert!(o.stderr.contains("move them out"), "{}", o.stderr);
+    assert_eq!(tree_hashes(&out), before, "nothing was replaced");
+    // A link the run did not write counts as well (removing it loses what it points to's name).
+    fs::remove_dir_all(out.join("archive")).unwrap();
+    fs::remove_file(out.join("group/notes.txt")).unwrap();
+    #[cfg(unix)]
+    {
+        std::os::unix::fs::symlink(&t.dir, out.join("program-link")).unwrap();
+        let o = run(&t, "html");
+        assert_eq!(o.code, 2, "{o:?}");
+        assert!(o.stderr.contains("`program-link`"), "{}", o.stderr);
+        fs::remove_file(out.join("program-link")).unwrap();
+    }
+    // What a file manager leaves when someone looks at the reports, and an empty folder, are
+    // nobody's work: the run goes on.
+    fs::write(out.join(".DS_Store"), b"x").unwrap();
+    fs::write(out.join("participants/Thumbs.db"), b"x").unwrap();
+    fs::create_dir(out.join("empty")).unwrap();
+    let o = run(&t, "html");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(!out.join(".DS_Store").exists());
+    assert!(!out.join("empty").exists());
+}
+
+#[test]
 fn the_group_report_names_only_the_participants_it_leaves_out() {
     let t = demo(5);
     let out = out_dir(&t);
