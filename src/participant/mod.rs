@@ -16,6 +16,7 @@ use crate::program::load::{decode_utf8, is_plain_id};
 use chrono::NaiveDate;
 use cohortpress_metric_api::ParticipantData;
 use records::Window;
+use std::collections::BTreeMap;
 use std::path::PathBuf;
 use table::{CsvOptions, FileCtx};
 
@@ -146,6 +147,38 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         }
     }
     dirs.sort();
+    // Ids that differ only in case (`LW-01`, `lw-01`) name the same output files on a
+    // case-insensitive file system (Windows and macOS shares, USB sticks): one report would be
+    // written over, or under the other's name. Most likely it is one person exported twice, so
+    // neither is reported (counted twice, the group report would count them twice).
+    let mut by_folded: BTreeMap<String, Vec<String>> = BTreeMap::new();
+    for d in &dirs {
+        by_folded
+            .entry(d.id.to_ascii_lowercase())
+            .or_default()
+            .push(d.id.clone());
+    }
+    let clashing: Vec<Vec<String>> = by_folded.into_values().filter(|v| v.len() > 1).collect();
+    for ids in &clashing {
+        let listed = ids
+            .iter()
+            .map(|i| format!("`{i}`"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        for id in ids {
+            diags.push(
+                Diagnostic::error(
+                    format!("{PARTICIPANTS_DIR}/{id}"),
+                    format!("participant folders {listed} differ only in upper and lower case; none of them is reported"),
+                )
+                .participant(id)
+                .expected("participant ids that differ in more than case (output files are named by the id, and many file systems do not tell case apart)")
+                .found(listed.clone())
+                .hint("keep one folder per person: merge the folders, or rename one of them and the `id` in its profile.yaml"),
+            );
+        }
+    }
+    dirs.retain(|d| !clashing.iter().any(|ids| ids.contains(&d.id)));
     if dirs.is_empty() && diags.is_empty() {
         // An empty folder is what an unmounted network share looks like: reporting on nobody
         // would replace last month's reports with empty ones.

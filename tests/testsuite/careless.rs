@@ -124,3 +124,37 @@ fn the_group_report_names_only_the_participants_it_leaves_out() {
     );
 }
 
+#[test]
+fn ids_that_differ_only_in_case_are_both_left_out() {
+    let t = demo(3);
+    let out = out_dir(&t);
+    // The same person exported twice, once with a lowercase id: on a case-insensitive output
+    // (a Windows or macOS share) both reports have one name, and the group counts them twice.
+    let copy = t.dir.join("participants/sg-002");
+    fs::create_dir(&copy).unwrap();
+    for e in fs::read_dir(t.dir.join("participants/SG-002")).unwrap() {
+        let e = e.unwrap();
+        fs::copy(e.path(), copy.join(e.file_name())).unwrap();
+    }
+    let profile = copy.join("profile.yaml");
+    let p = fs::read_to_string(&profile).unwrap();
+    fs::write(&profile, p.replace("id: SG-002", "id: sg-002")).unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check
+            .stdout
+            .contains("participant folders `SG-002`, `sg-002` differ only in upper and lower case"),
+        "{}",
+        check.stdout
+    );
+    let o = run(&t, "html");
+    assert_eq!(o.code, 4, "{o:?}");
+    let mut reports: Vec<String> = fs::read_dir(out.join("participants"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    reports.sort();
+    assert_eq!(reports, ["SG-001.html", "SG-003.html"]);
+}
+
