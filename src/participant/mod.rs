@@ -289,6 +289,21 @@ fn read_input(
         blake3: blake3::hash(&bytes).to_hex().to_string(),
         bytes: bytes.len() as u64,
     });
+    match encoding::decode_utf16(&bytes) {
+        Some(Ok((text, order))) => {
+            ctx.note(format!("read as {order} text"));
+            return Some(Ok(text));
+        }
+        Some(Err(why)) => {
+            diags.push(
+                ctx.error(format!("{why}; the file is not used"))
+                    .expected("UTF-8 or UTF-16 text")
+                    .hint("save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8)"),
+            );
+            return Some(Err(()));
+        }
+        None => {}
+    }
     match decode_utf8(&bytes, &ctx.file) {
         Ok(t) => Some(Ok(t.to_string())),
         Err(d) => match encoding::decode_legacy(&bytes) {
@@ -481,7 +496,7 @@ pub fn load_opened(
     // Only the profile (and the folder) can make a participant unusable: a CSV file that
     // cannot be used is an error for that file, and the participant is reported without it.
     let profile_usable = !diags.iter().any(|d| d.severity == Severity::Error);
-    let mut notes = Vec::new();
+    let mut notes = pctx.take_notes();
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
             let ctx = FileCtx::new(id, rel($spec.name));

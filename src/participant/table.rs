@@ -335,8 +335,9 @@ pub fn header_key(h: &str) -> (String, Option<String>) {
 /// first line into the most fields and splits the next lines (up to 20) into as many. `None`
 /// when the file has no line with any of them (one column: comma is as good as any).
 pub fn sniff_delimiter(text: &str) -> Option<u8> {
+    // Lines end with `\n`, `\r\n` or a lone `\r` (`str::lines` knows only the first two).
     let lines: Vec<&str> = text
-        .lines()
+        .split(['\n', '\r'])
         .filter(|l| !l.trim().is_empty())
         .take(21)
         .collect();
@@ -393,6 +394,70 @@ pub fn read_table(
         };
         read_records(reader, &file, diags)
     })
+    .and_then(|table| match day_month_swapped(&table, opts, ctx) {
+        Some(d) => {
+            diags.push(d);
+            None
+        }
+        None => Some(table),
+    })
+}
+
+/// A file whose dates are written with day and month the other way round from
+/// `input.date_format` (`03/04/2026` meant as 4 March in a program set to `%d/%m/%Y`): some of
+/// its dates fit only the swapped order (`03/14/2026`) and none fits only the program's. Read
+/// with the program's format, its rows up to the 12th of each month would be taken on the wrong
+/// day without a word (and the others dropped), so the file is refused, located at the first date
+/// that gives it away.
+fn day_month_swapped(table: &Table, opts: &CsvOptions, ctx: &FileCtx) -> Option<Diagnostic> {
+    let format = opts.date_format.as_str();
+    // Day and month before the year (`%d/%m/%Y`, `%m-%d-%y %H:%M`): the orders that are
+    // written both ways. A year-first date (ISO 8601, `%Y/%m/%d`) is month before day.
+    let at = |f: &str| format.find(f);
+    let year = at("%Y").or(at("%y"));
+    let (Some(d), Some(m), Some(y)) = (at("%d"), at("%m"), year) else {
+        return None;
+    };
+    if y < d.max(m) {
+        return None;
+    }
+    let swapped_format = format
+        .replace("%d", "\u{0}")
+        .replace("%m", "%d")
+        .replace("\u{0}", "%m");
+    let swapped = CsvOptions {
+        date_format: swapped_format.clone(),
+        ..opts.clone()
+    };
+    let (mut swap_only, mut misread) = (None, None);
+    for row in &table.rows {
+        let Some(s) = table.get(row, "date") else {
+            continue;
+        };
+        match (parse_when(s, opts), parse_when(s, &swapped)) {
+            (Some(_), None) => return None,
+            (None, Some(_)) => {
+                swap_only.get_or_insert((row.line, s));
+            }
+            (Some(a), Some(b)) if a.date != b.date => {
+                misread.get_or_insert((row.line, s));
+            }
+            _ => {}
+        }
+    }
+    let ((line, found), (mline, mfound)) = (swap_only?, misread?);
+    Some(
+        ctx.error(format!(
+            "the dates are written with day and month the other way round from `input.date_format` (`{format}`): line {line}'s `{found}` fits only `{swapped_format}`, and no date fits only `{format}`; dates such as line {mline}'s `{mfound}` would be read on the wrong day, so the file is not used"
+        ))
+        .at(line, table.column("date"))
+        .field("date")
+        .expected(format!("dates in the format `{format}`"))
+        .found(format!("`{found}`"))
+        .hint(format!(
+            "save the file with dates written `{format}` (or as ISO 8601, `2026-04-01`); if every file of the program is written `{swapped_format}`, set `input.date_format: \"{swapped_format}\"` in program.yaml"
+        )),
+    )
 }
 
 /// A CSV reader over a reusable buffer.
@@ -505,7 +570,13 @@ fn read_records(
             if b < from {
                 (from, line) = (0, 1);
             }
-            line += bytes[from..b].iter().filter(|&&c| c == b'\n').count() as u64;
+            // A line ends with `\n`, `\r\n` or a lone `\r` (the classic Mac ending some
+            // spreadsheets still write), as the csv reader ends records.
+            line += (from..b)
+                .filter(|&i| {
+                    bytes[i] == b'\n' || (bytes[i] == b'\r' && bytes.get(i + 1) != Some(&b'\n'))
+                })
+                .count() as u64;
             counted.set((b, line));
             line
         })
@@ -1127,6 +1198,52 @@ mod tests {
         );
     }
 
+    #[test]
+    fn dates_with_day_and_month_swapped_refuse_the_file() {
+        let dmy = CsvOptions {
+            date_format: "%d/%m/%Y".into(),
+            ..CsvOptions::default()
+        };
+        // Written month first: 03/04 (4 March) would be read as 3 April, 03/14 gives it away.
+        let us = "date,weight,unit\n03/02/2026,80,kg\n03/04/2026,79.8,kg\n03/14/2026,79.5,kg\n";
+        let (t, d) = read(us, &dmy);
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(4), Some(1)));
+        assert!(d[0].message.contains("`%m/%d/%Y`"), "{}", d[0]);
+        assert!(d[0].message.contains("line 2's `03/02/2026`"), "{}", d[0]);
+        // The same dates written day first are read, and one date that fits only the program's
+        // order settles it (a later date that fits only the other order is a typo, dropped).
+        let eu = "date,weight,unit\n02/03/2026,80,kg\n04/03/2026,79.8,kg\n14/03/2026,79.5,kg\n03/14/2026,79.5,kg\n";
+        let (t, d) = read(eu, &dmy);
+        assert_eq!(t.unwrap().rows.len(), 4);
+        assert!(d.is_empty(), "{d:?}");
+        // Only dates that read the same either way (4 April, ISO): nothing to refuse.
+        let same = "date,weight,unit\n04/04/2026,80,kg\n2026-04-05,79.8,kg\n";
+        let (t, d) = read(same, &dmy);
+        assert_eq!(t.unwrap().rows.len(), 2);
+        assert!(d.is_empty(), "{d:?}");
+    }
+
+    #[test]
+    fn lone_cr_line_ends_count_lines_and_the_delimiter_is_recognised() {
+        // The classic Mac line end (`\r` alone), still written by some spreadsheet exports, in a
+        // semicolon file with decimal commas; line 4 has a field missing, line 6 a quoted
+        // field over two lines.
+        let (t, d) = read(
+            "date;weight;unit\r2026-04-01;72,5;kg\r\r2026-04-02;72\r2026-04-03;\"71,5\";kg\r2026-04-04;71;\"k\rg\"\r2026-04-05;70,5;kg\r",
+            &CsvOptions::default(),
+        );
+        let t = t.unwrap();
+        assert_eq!(t.delimiter, b';');
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].line, Some(4), "{}", d[0]);
+        assert_eq!(
+            t.rows.iter().map(|r| r.line).collect::<Vec<_>>(),
+            vec![2, 5, 6, 8]
+        );
+    }
     #[test]
     fn missing_column_is_an_error_naming_it() {
         let (t, d) = read("date,weight\n2026-04-01,72\n", &CsvOptions::default());

@@ -158,3 +158,50 @@ fn ids_that_differ_only_in_case_are_both_left_out() {
     assert_eq!(reports, ["SG-001.html", "SG-003.html"]);
 }
 
+#[test]
+fn a_file_saved_as_unicode_text_is_read_like_utf8() {
+    let t = demo(2);
+    let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    let weigh_ins = |dir: &Path| -> (usize, usize) {
+        let r = cohortpress::check::check_program(dir, as_of);
+        let p = r.participants.iter().find(|p| p.id == "SG-001").unwrap();
+        let n = p.data.as_ref().unwrap().weights.len();
+        let errors = r
+            .participants
+            .iter()
+            .flat_map(|p| &p.diagnostics)
+            .filter(|d| d.severity == cohortpress::diag::Severity::Error)
+            .count();
+        (n, errors)
+    };
+    let (n, errors) = weigh_ins(&t.dir);
+    assert!(n > 20, "{n}");
+    assert_eq!(errors, 0);
+    // A spreadsheet's "Unicode text": UTF-16 little-endian with its byte-order mark, tabs and
+    // CRLF; and a big-endian profile.
+    let w = t.dir.join("participants/SG-001/weights.csv");
+    let text = fs::read_to_string(&w)
+        .unwrap()
+        .replace(',', "\t")
+        .replace('\n', "\r\n");
+    let le: Vec<u8> = [0xFF, 0xFE]
+        .into_iter()
+        .chain(text.encode_utf16().flat_map(u16::to_le_bytes))
+        .collect();
+    fs::write(&w, le).unwrap();
+    let pf = t.dir.join("participants/SG-001/profile.yaml");
+    let profile = fs::read_to_string(&pf).unwrap();
+    let be: Vec<u8> = [0xFE, 0xFF]
+        .into_iter()
+        .chain(profile.encode_utf16().flat_map(u16::to_be_bytes))
+        .collect();
+    fs::write(&pf, be).unwrap();
+    // It was refused ("it may be UTF-16 or binary"): every weigh-in and the participant lost.
+    assert_eq!(weigh_ins(&t.dir), (n, 0));
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert!(
+        check.stdout.contains("read as UTF-16 little-endian text"),
+        "{}",
+        check.stdout
+    );
+}
