@@ -9,7 +9,7 @@
 //! (`input.columns`). Whatever was recognised rather than written our way is stated once per
 //! file as a [`Note`].
 
-use super::quantity::{NumberError, parse_decimal};
+use super::quantity::{NumberError, parse_decimal, parse_grouped};
 use crate::diag::Diagnostic;
 use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_ROWS};
 pub use crate::program::files::{FileSpec, LocalZone};
@@ -29,6 +29,10 @@ pub struct Note {
     /// What was recognised or decided.
     pub message: String,
 }
+
+/// Columns whose values are whole numbers in practice (energy, steps): a single `.` or `,`
+/// followed by three digits there groups thousands (see [`parse_grouped`]).
+const INTEGER_VALUED: [&str; 2] = ["kcal", "steps"];
 
 /// Where diagnostics go: the participant and the file (relative to the program folder).
 #[derive(Debug, Clone)]
@@ -136,6 +140,8 @@ pub struct Table {
     renamed: Vec<(String, &'static str)>,
     /// Set when a number was read with a decimal comma.
     decimal_comma: Cell<bool>,
+    /// Set when a number was read with thousands separators.
+    thousands: Cell<bool>,
     /// Set when a date carried a time of day.
     timestamps: Cell<bool>,
     /// Set when a UTC time was converted to the local time zone.
@@ -196,6 +202,7 @@ impl Table {
             units: BTreeMap::new(),
             renamed: Vec::new(),
             decimal_comma: Cell::new(false),
+            thousands: Cell::new(false),
             timestamps: Cell::new(false),
             utc_converted: Cell::new(false),
         }
@@ -221,6 +228,12 @@ impl Table {
         }
         if !how.is_empty() {
             parts.push(format!("read as {how}"));
+        }
+        if self.thousands.get() {
+            parts.push(
+                "numbers with thousands separators read as whole thousands (`1.850` kcal = 1,850 kcal)"
+                    .to_string(),
+            );
         }
         if self.timestamps.get() {
             let mut s =
@@ -1125,6 +1138,12 @@ impl Cells<'_> {
         consequence: &str,
         diags: &mut Vec<Diagnostic>,
     ) -> Option<f64> {
+        // Thousands separators, as formatted cells are exported (`1.850` kcal from a
+        // German-locale spreadsheet was read as 1.85 kcal, without a word).
+        if let Some(v) = parse_grouped(s, INTEGER_VALUED.contains(&col)) {
+            self.table.thousands.set(true);
+            return Some(v);
+        }
         match parse_decimal(s) {
             Ok(v) => Some(v),
             // Where the comma does not separate fields, it is the decimal separator of the

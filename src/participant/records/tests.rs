@@ -341,6 +341,27 @@ fn intake_rows_of_a_day_are_summed() {
 }
 
 #[test]
+fn formatted_thousands_in_kcal_and_steps_are_thousands() {
+    // A German-locale spreadsheet: semicolons, decimal commas, `.` grouping thousands. The
+    // kcal column was read as 1.85 and 2.1 kcal a day (and flagged as intake below 800).
+    let (v, diags) = intake(
+        "date;kcal;protein_g\n2026-04-01;1.850;72,5\n2026-04-02;2.100,5;80\n2026-04-03;950;60\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kcal: Vec<f64> = v.iter().map(|i| i.kcal).collect();
+    assert_eq!(kcal, [1850.0, 2100.5, 950.0]);
+    assert_eq!(v[0].protein_g, Some(72.5));
+    // An English-locale export, tab-separated, with `,` grouping thousands; and steps.
+    let (v, diags) = intake("date\tkcal\n2026-04-01\t1,850\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].kcal, 1850.0);
+    let (a, diags) =
+        activity("date;activity;minutes;met;steps\n2026-04-01;walking_3mph;30,5;;12.500\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!((a[0].minutes, a[0].steps), (30.5, Some(12_500.0)));
+}
+
+#[test]
 fn implausible_daily_intake_is_dropped_after_summing() {
     let (v, diags) = intake(
         "date,kcal\n2026-04-01,6000\n2026-04-01,4500\n2026-04-02,0\n2026-04-03,-5\n2026-04-04,1500\n",
