@@ -308,8 +308,8 @@ pub fn finish(
             group_by: plan.program.def.report.group_by.clone(),
             confidence: 0.95,
         };
-        // Group-report ledger hook: audit against what earlier reports published, record after
-        // the outputs are in place.
+        // Group-report ledger hook: audit against what earlier reports published, record
+        // before the outputs are put in place (see below).
         let ledger = group::ledger::Ledger::open(&plan.state_dir)
             .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
         if ledger.is_new() && plan.out_named_by == "--out" {
@@ -384,12 +384,18 @@ pub fn finish(
     let manifest = super::manifest::manifest(plan, &inputs, &staging, &summary)
         .map_err(|e| RunError::Output(e.to_string()))?;
     staging.write("manifest.json", &manifest)?;
-    let outputs: OutputSet = staging.commit()?;
+    // The release is recorded before the swap: a group report in place but missing from the
+    // ledger (its write refused, or the run killed in between) was left out of every later
+    // audit, so next month's report could be differenced against it, and the run ended with
+    // exit 6 ("previous outputs left intact") over the new output. Recorded first, a failed
+    // write stops the run with the previous output in place; a swap that fails after it
+    // leaves a record of a report never published, which only makes later audits stricter.
     if let Some((mut ledger, record)) = release {
         ledger
             .record(record)
             .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
     }
+    let outputs: OutputSet = staging.commit()?;
     timing.commit_s = phase.elapsed().as_secs_f64();
     tracing::debug!("{} output files", outputs.files);
     Ok((summary, timing))

@@ -285,3 +285,28 @@ fn the_ledger_never_writes_through_a_planted_link() {
     assert!(state.join("ledger.json").is_file());
     assert_eq!(std::fs::read(state.join("secret.key")).unwrap().len(), 32);
 }
+
+#[test]
+fn a_release_the_ledger_cannot_record_is_not_published() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    assert_eq!(run(AS_OF).code, 0);
+    let out = t.dir.join("reports");
+    let before = tree_hashes(&out);
+    let ledger = t.dir.join("reports.ledger/ledger.json");
+    let recorded = std::fs::read(&ledger).unwrap();
+    // The ledger cannot be saved (a folder where its temporary file goes: as a full disk or a
+    // read-only state folder would, also for root).
+    std::fs::create_dir_all(t.dir.join("reports.ledger/ledger.tmp/x")).unwrap();
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(o.stderr.contains("group-report ledger"), "{}", o.stderr);
+    // The new group report was put in place all the same, unrecorded: later audits never saw it.
+    assert_eq!(
+        tree_hashes(&out),
+        before,
+        "the previous output is left intact"
+    );
+    assert_eq!(std::fs::read(&ledger).unwrap(), recorded);
+    assert!(!t.dir.join(".reports.staging").exists());
+}
