@@ -749,6 +749,15 @@ fn read_records(
     }
     // Extra columns are only worth a word when the header itself is right.
     diags.extend(extra);
+    // The last field a row must reach: rows that end early, before no required column, are
+    // read with the rest empty (exports leave off trailing empty values).
+    let last_required = spec
+        .required
+        .iter()
+        .filter_map(|c| columns.get(c))
+        .max()
+        .copied();
+    let (mut short_rows, mut trailing_empty) = (0usize, 0usize);
     let mut table = Table {
         columns,
         rows: Vec::new(),
@@ -804,7 +813,20 @@ fn read_records(
             );
             continue;
         }
-        if rec.len() != names.len() {
+        let width = names.len();
+        let fits = if rec.len() > width {
+            // A delimiter at the end of each row (`2026-04-01,72,kg,`) gives empty extra fields.
+            let empty = rec.iter().skip(width).all(|f| f.trim().is_empty());
+            trailing_empty += usize::from(empty);
+            empty
+        } else if rec.len() < width {
+            let short = last_required.is_none_or(|r| r < rec.len());
+            short_rows += usize::from(short);
+            short
+        } else {
+            true
+        };
+        if !fits {
             let mut d = ctx
                 .warning(format!(
                     "row has {} fields but the header has {}; the row is dropped",
@@ -846,12 +868,35 @@ fn read_records(
             continue;
         }
         let first = table.bounds.len();
-        for f in &rec {
+        for f in rec.iter().take(width) {
             let start = table.text.len();
             table.text.push_str(f);
             table.bounds.push((start, table.text.len()));
         }
+        for _ in rec.len()..width {
+            let end = table.text.len();
+            table.bounds.push((end, end));
+        }
         table.rows.push(Row { line, first });
+    }
+    let rows = |n: usize| {
+        if n == 1 {
+            "1 row".to_string()
+        } else {
+            format!("{} rows", crate::diag::thousands(n))
+        }
+    };
+    if short_rows > 0 {
+        ctx.note(format!(
+            "{} with fewer fields than the header (values left off at the end) read with the missing values empty",
+            rows(short_rows)
+        ));
+    }
+    if trailing_empty > 0 {
+        ctx.note(format!(
+            "{} with empty fields after the last column (a delimiter at the end of the row) read without them",
+            rows(trailing_empty)
+        ));
     }
     Some(table)
 }
@@ -1243,6 +1288,37 @@ mod tests {
         let (t, d) = read(same, &dmy);
         assert_eq!(t.unwrap().rows.len(), 2);
         assert!(d.is_empty(), "{d:?}");
+    }
+
+    #[test]
+    fn rows_that_leave_off_trailing_empty_values_or_end_with_a_delimiter_are_read() {
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        // The header has a `source` column, rows without a source leave it off (lines 2, 4);
+        // line 3 ends with a delimiter; line 5 leaves off the required `unit` and is dropped;
+        // line 6 has a value after the last column and is dropped.
+        let text = "date,weight,unit,source\n2026-04-01,72,kg\n2026-04-02,71.8,kg,clinic,\n2026-04-03,71.5,kg\n2026-04-04,71\n2026-04-05,71,kg,home,x\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert_eq!(
+            t.rows.iter().map(|r| r.line).collect::<Vec<_>>(),
+            vec![2, 3, 4]
+        );
+        assert_eq!(t.get(&t.rows[0], "source"), None);
+        assert_eq!(t.get(&t.rows[1], "source"), Some("clinic"));
+        assert_eq!(t.get(&t.rows[2], "unit"), Some("kg"));
+        assert_eq!(
+            d.iter().map(|x| x.line).collect::<Vec<_>>(),
+            vec![Some(5), Some(6)],
+            "{d:?}"
+        );
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        assert_eq!(
+            notes,
+            [
+                "2 rows with fewer fields than the header (values left off at the end) read with the missing values empty",
+                "1 row with empty fields after the last column (a delimiter at the end of the row) read without them"
+            ]
+        );
     }
 
     #[test]
