@@ -329,6 +329,33 @@ fn read_input(
     }
 }
 
+/// The name in the folder under which input `name` is read: `name` itself when it is there
+/// (or the folder could not be listed), else the one name that differs from it only in case
+/// (`Weights.csv`, `WEIGHTS.CSV`: some systems export so, and a case-insensitive file system
+/// would have opened it anyway). Two such names are ambiguous: neither is read.
+fn input_name(listing: Option<&[String]>, name: &str) -> String {
+    let Some(names) = listing else {
+        return name.to_string();
+    };
+    if names.iter().any(|n| n == name) {
+        return name.to_string();
+    }
+    let mut variants = names.iter().filter(|n| n.eq_ignore_ascii_case(name));
+    match (variants.next(), variants.next()) {
+        (Some(only), None) => only.clone(),
+        _ => name.to_string(),
+    }
+}
+
+/// Notes that an input was read under a name written in other case.
+fn note_case(ctx: &FileCtx, name: &str, ours: &str) {
+    if name != ours {
+        ctx.note(format!(
+            "`{name}` read as `{ours}` (the name differs only in case)"
+        ));
+    }
+}
+
 /// Files a participant folder may hold.
 const KNOWN_FILES: [&str; 6] = [
     PROFILE_FILE,
@@ -424,11 +451,20 @@ pub fn load_opened(
             listing = Some(names.clone());
         }
         names.sort();
+        // Input files written in other case (`Weights.csv`) are read as the inputs they name.
+        let read_as: Vec<String> = KNOWN_FILES
+            .iter()
+            .map(|k| input_name(Some(&names), k))
+            .collect();
         let mut stray = 0usize;
         for n in names {
             let lower = n.to_lowercase();
             let input_like = [".csv", ".yaml", ".yml"].iter().any(|x| lower.ends_with(x));
-            if input_like && !n.starts_with('.') && !KNOWN_FILES.contains(&n.as_str()) {
+            if input_like
+                && !n.starts_with('.')
+                && !KNOWN_FILES.contains(&n.as_str())
+                && !read_as.contains(&n)
+            {
                 stray += 1;
                 if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
                     continue;
@@ -462,10 +498,12 @@ pub fn load_opened(
         }
     }
 
-    let pctx = FileCtx::new(id, rel(PROFILE_FILE));
+    let profile_name = input_name(listing.as_deref(), PROFILE_FILE);
+    let pctx = FileCtx::new(id, rel(&profile_name));
+    note_case(&pctx, &profile_name, PROFILE_FILE);
     let profile = match read_input(
         &handle,
-        PROFILE_FILE,
+        &profile_name,
         listing.as_deref(),
         &pctx,
         &mut files,
@@ -499,11 +537,13 @@ pub fn load_opened(
     let mut notes = pctx.take_notes();
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
-            let ctx = FileCtx::new(id, rel($spec.name));
+            let name = input_name(listing.as_deref(), $spec.name);
+            let ctx = FileCtx::new(id, rel(&name));
+            note_case(&ctx, &name, $spec.name);
             let first_diag = diags.len();
             let rows = match read_input(
                 &handle,
-                $spec.name,
+                &name,
                 listing.as_deref(),
                 &ctx,
                 &mut files,

@@ -205,3 +205,45 @@ fn a_file_saved_as_unicode_text_is_read_like_utf8() {
         check.stdout
     );
 }
+
+#[test]
+fn input_files_named_in_other_case_are_read() {
+    let t = demo(2);
+    let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    let load = |dir: &Path| {
+        let r = cohortpress::check::check_program(dir, as_of);
+        r.participants
+            .into_iter()
+            .find(|p| p.id == "SG-001")
+            .unwrap()
+    };
+    let p = load(&t.dir);
+    let n = p.data.as_ref().unwrap().weights.len();
+    assert!(n > 20, "{n}");
+    // Saved by a system that capitalises names: the weigh-ins were ignored ("not an input file
+    // the tool reads"), and without profile.yaml the participant was left out.
+    let folder = t.dir.join("participants/SG-001");
+    fs::rename(folder.join("weights.csv"), folder.join("Weights.CSV")).unwrap();
+    fs::rename(folder.join("profile.yaml"), folder.join("PROFILE.YAML")).unwrap();
+    let p = load(&t.dir);
+    assert_eq!(p.data.as_ref().map(|d| d.weights.len()), Some(n));
+    assert!(p.diagnostics.is_empty(), "{:?}", p.diagnostics);
+    let notes: Vec<&str> = p.notes.iter().map(|n| n.message.as_str()).collect();
+    assert!(
+        notes.contains(&"`Weights.CSV` read as `weights.csv` (the name differs only in case)"),
+        "{notes:?}"
+    );
+    assert_eq!(p.files[0].path, "participants/SG-001/PROFILE.YAML");
+    // Two names for one input: neither is read, both are named.
+    fs::write(folder.join("WEIGHTS.csv"), "date,weight,unit\n").unwrap();
+    let p = load(&t.dir);
+    assert_eq!(p.data.as_ref().map(|d| d.weights.len()), Some(0));
+    let stray: Vec<&str> = p.diagnostics.iter().map(|d| d.file.as_str()).collect();
+    assert_eq!(
+        stray,
+        [
+            "participants/SG-001/WEIGHTS.csv",
+            "participants/SG-001/Weights.CSV"
+        ]
+    );
+}
