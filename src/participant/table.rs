@@ -126,6 +126,8 @@ pub struct Table {
     columns: BTreeMap<&'static str, usize>,
     /// Data rows with the header's number of fields.
     pub rows: Vec<Row>,
+    /// 1-based line of the header row.
+    pub header_line: u64,
     text: String,
     bounds: Vec<(usize, usize)>,
     /// Fields per row.
@@ -166,6 +168,15 @@ impl Table {
         (!s.is_empty()).then_some(s)
     }
 
+    /// The header of `col` as written, when it was read under another name (`Energy` for
+    /// `kcal`).
+    pub fn written_as(&self, col: &str) -> Option<&str> {
+        self.renamed
+            .iter()
+            .find(|(_, c)| *c == col)
+            .map(|(w, _)| w.as_str())
+    }
+
     /// The unit written in the header of `col` (`Weight (lb)` → `lb`), lowercase.
     pub fn header_unit(&self, col: &str) -> Option<&str> {
         self.units.get(col).map(String::as_str)
@@ -194,6 +205,7 @@ impl Table {
         Table {
             columns: BTreeMap::new(),
             rows: Vec::new(),
+            header_line: 1,
             text: String::new(),
             bounds: Vec::new(),
             width: 0,
@@ -766,6 +778,7 @@ fn read_records(
         width: names.len(),
         units,
         renamed,
+        header_line,
         ..Table::empty(delimiter, sniffed)
     };
     let mut records = 0usize;
