@@ -291,12 +291,15 @@ fn unlisted_files(dir: &Path, manifest: &serde_json::Value) -> Option<String> {
     {
         let (rel, unlisted) = match &entry {
             Ok(e) => {
+                // The manifest's form: components joined by `/` (a `\` in a name stays).
                 let rel = e
                     .path()
                     .strip_prefix(dir)
-                    .map_or_else(|_| e.path().to_path_buf(), Path::to_path_buf)
-                    .to_string_lossy()
-                    .replace('\\', "/");
+                    .unwrap_or(e.path())
+                    .components()
+                    .map(|c| c.as_os_str().to_string_lossy())
+                    .collect::<Vec<_>>()
+                    .join("/");
                 let name = e.file_name().to_string_lossy();
                 let ours = e.file_type().is_dir()
                     || (e.depth() == 1 && (name == "manifest.json" || name == STAGING_MARKER))

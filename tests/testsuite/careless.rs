@@ -85,6 +85,11 @@ fn files_of_someone_elses_in_an_output_folder_are_never_deleted() {
         assert_eq!(o.code, 2, "{o:?}");
         assert!(o.stderr.contains("`program-link`"), "{}", o.stderr);
         fs::remove_file(out.join("program-link")).unwrap();
+        // A name with a backslash is not the listed path it would spell on Windows.
+        fs::write(out.join("participants\\SG-001.html"), b"mine").unwrap();
+        let o = run(&t, "html");
+        assert_eq!(o.code, 2, "{o:?}");
+        fs::remove_file(out.join("participants\\SG-001.html")).unwrap();
     }
     // What a file manager leaves when someone looks at the reports, and an empty folder, are
     // nobody's work: the run goes on.
