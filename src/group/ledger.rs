@@ -149,17 +149,6 @@ impl Ledger {
             }
             Err(std::fs::TryLockError::Error(e)) => return Err(io_err(&lock_path, e)),
         }
-        let key_path = dir.join(KEY_FILE);
-        let secret = match std::fs::read(&key_path) {
-            Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
-            Ok(_) => return Err(io_err(&key_path, "not a 32-byte key")),
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
-                let key = fresh_key();
-                write_atomic(&key_path, &key)?;
-                key
-            }
-            Err(e) => return Err(io_err(&key_path, e)),
-        };
         let ledger_path = dir.join(LEDGER_FILE);
         let mut new = false;
         let releases = match std::fs::read(&ledger_path) {
@@ -179,6 +168,34 @@ impl Ledger {
                 Vec::new()
             }
             Err(e) => return Err(io_err(&ledger_path, e)),
+        };
+        let key_path = dir.join(KEY_FILE);
+        let secret = match std::fs::read(&key_path) {
+            Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
+            Ok(_) => return Err(io_err(&key_path, "not a 32-byte key")),
+            // A ledger whose key is lost cannot link anyone to its releases: with a new key
+            // every earlier count would look like other people, and the audit across releases
+            // would pass anything while the report still listed them.
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound && !releases.is_empty() => {
+                return Err(io_err(
+                    &key_path,
+                    format!(
+                        "missing, while {} records {} earlier release{}: without its key they \
+                         cannot be audited against; restore {KEY_FILE} from the backup taken \
+                         with the ledger, or move the folder away to start a new ledger \
+                         (then earlier reports are not audited against)",
+                        LEDGER_FILE,
+                        releases.len(),
+                        if releases.len() == 1 { "" } else { "s" }
+                    ),
+                ));
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                let key = fresh_key();
+                write_atomic(&key_path, &key)?;
+                key
+            }
+            Err(e) => return Err(io_err(&key_path, e)),
         };
         Ok(Ledger {
             dir: dir.to_path_buf(),

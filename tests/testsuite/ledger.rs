@@ -310,3 +310,31 @@ fn a_release_the_ledger_cannot_record_is_not_published() {
     assert_eq!(std::fs::read(&ledger).unwrap(), recorded);
     assert!(!t.dir.join(".reports.staging").exists());
 }
+
+#[test]
+fn a_ledger_that_lost_its_key_is_not_used_with_a_new_one() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    assert_eq!(run(AS_OF).code, 0);
+    let out = t.dir.join("reports");
+    let before = tree_hashes(&out);
+    // The key deleted (or not restored with the ledger): a new key was made, under which no
+    // earlier count linked to anyone, so the audit across releases passed what it would have
+    // hidden (on the sample program, 657 figures hidden with the key, 462 with a new one).
+    let key = t.dir.join("reports.ledger/secret.key");
+    std::fs::remove_file(&key).unwrap();
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("secret.key: missing, while ledger.json records 1 earlier release"),
+        "{}",
+        o.stderr
+    );
+    assert!(!key.exists(), "no new key is made");
+    assert_eq!(
+        tree_hashes(&out),
+        before,
+        "the previous output is left intact"
+    );
+}
