@@ -9,7 +9,10 @@
 //! - `ledger.json`: one entry per release (program id, period, as-of date): every exact count it
 //!   printed as the set of person tokens counted, every mean printed with its n as the list of
 //!   (person token, value key) it sums — value keys are hashes, no value is stored — and the
-//!   whole program's headline figures as printed, for the month-over-month table.
+//!   whole program's headline figures as printed, for the month-over-month table, and a keyed
+//!   hash of a fixed text ([`key_check`]) that tells whether `secret.key` is the key it was
+//!   written with. A ledger with releases is never given a new key: a missing or different key
+//!   is an error (under another key no earlier count would link to anyone).
 //!
 //! Writes replace the file atomically (temporary file, then rename). An identical release
 //! (same period and the same published facts, e.g. a re-run) is recorded once. A run holds an
@@ -49,6 +52,19 @@ pub struct ReleaseRecord {
     pub count_labels: Vec<String>,
     /// Sums: (person token, value key) pairs.
     pub sums: Vec<Vec<(u64, u64)>>,
+    /// A keyed hash of a fixed text under the key the tokens were made with (see
+    /// [`key_check`]): tells a key that does not belong to the ledger. Empty in older ledgers.
+    #[serde(default)]
+    pub key_check: String,
+}
+
+/// What a key gives for a fixed text: stored with each release, so a `secret.key` restored
+/// from another backup (or another program's) is told from the right one. It reveals nothing
+/// of the key (a keyed hash, blake3).
+pub fn key_check(secret: &[u8; 32]) -> String {
+    blake3::keyed_hash(secret, b"cohortpress group ledger key check")
+        .to_hex()
+        .to_string()
 }
 
 #[derive(Debug, Default, Serialize, Deserialize)]
@@ -197,6 +213,21 @@ impl Ledger {
             }
             Err(e) => return Err(io_err(&key_path, e)),
         };
+        let check = key_check(&secret);
+        if let Some(r) = releases
+            .iter()
+            .find(|r| !r.key_check.is_empty() && r.key_check != check)
+        {
+            return Err(io_err(
+                &key_path,
+                format!(
+                    "not the key {LEDGER_FILE} was written with (its release for {} to {} was \
+                     recorded under another key): restore the {KEY_FILE} that was backed up \
+                     with this {LEDGER_FILE}",
+                    r.period_from, r.period_to
+                ),
+            ));
+        }
         Ok(Ledger {
             dir: dir.to_path_buf(),
             secret,
@@ -254,7 +285,8 @@ impl Ledger {
     }
 
     /// Records a release (once: an identical release is not added again) and saves.
-    pub fn record(&mut self, release: ReleaseRecord) -> std::io::Result<()> {
+    pub fn record(&mut self, mut release: ReleaseRecord) -> std::io::Result<()> {
+        release.key_check = key_check(&self.secret);
         if self.releases.contains(&release) {
             return Ok(());
         }
@@ -287,6 +319,7 @@ pub fn release_record(
         counts: published.counts,
         count_labels: published.count_labels,
         sums: published.sums,
+        key_check: String::new(),
     }
 }
 

@@ -338,3 +338,33 @@ fn a_ledger_that_lost_its_key_is_not_used_with_a_new_one() {
         "the previous output is left intact"
     );
 }
+
+#[test]
+fn a_key_that_does_not_belong_to_the_ledger_is_refused() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    assert_eq!(run(AS_OF).code, 0);
+    let out = t.dir.join("reports");
+    let before = tree_hashes(&out);
+    // Another program's key, or one from another backup: as blind as a new key.
+    let key = t.dir.join("reports.ledger/secret.key");
+    let right = std::fs::read(&key).unwrap();
+    let other: Vec<u8> = right.iter().map(|b| b ^ 0x5a).collect();
+    std::fs::write(&key, &other).unwrap();
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("secret.key: not the key ledger.json was written with"),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(
+        tree_hashes(&out),
+        before,
+        "the previous output is left intact"
+    );
+    // The right key back: the run goes on.
+    std::fs::write(&key, &right).unwrap();
+    assert_eq!(run("2026-12-02").code, 0);
+}
