@@ -312,6 +312,21 @@ pub fn finish(
         // before the outputs are put in place (see below).
         let ledger = group::ledger::Ledger::open(&plan.state_dir)
             .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
+        // A new ledger beside an output that holds a group report of an earlier run: the
+        // ledger was deleted or moved (or the state folder changed), and the audit starts
+        // again from nothing while the sponsor keeps the earlier reports.
+        let earlier_group_report =
+            plan.out_dir.join("group").is_dir() && plan.out_dir.join("manifest.json").is_file();
+        if ledger.is_new() && earlier_group_report && plan.out_named_by != "--out" {
+            tracing::warn!(
+                "group-report ledger {}: a new ledger, but {} holds a group report of an \
+                 earlier run, which this one is not audited against; if its ledger was moved, \
+                 name it with --state (or report.state_dir), or a difference of two reports may \
+                 give away a small group's figures",
+                ledger.dir().display(),
+                plan.out_dir.display()
+            );
+        }
         if ledger.is_new() && plan.out_named_by == "--out" {
             tracing::warn!(
                 "group-report ledger {}: a new ledger, so this group report is audited against \

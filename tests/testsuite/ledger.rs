@@ -368,3 +368,22 @@ fn a_key_that_does_not_belong_to_the_ledger_is_refused() {
     std::fs::write(&key, &right).unwrap();
     assert_eq!(run("2026-12-02").code, 0);
 }
+
+#[test]
+fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    let o = run(AS_OF);
+    assert_eq!(o.code, 0);
+    assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
+    // The ledger folder cleaned away as clutter: the next run audited against nothing, silently.
+    std::fs::remove_dir_all(t.dir.join("reports.ledger")).unwrap();
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr.contains("a new ledger, but")
+            && o.stderr.contains("holds a group report of an earlier run"),
+        "{}",
+        o.stderr
+    );
+}
