@@ -148,6 +148,8 @@ pub struct Table {
     timestamps: Cell<bool>,
     /// Set when a UTC time was converted to the local time zone.
     utc_converted: Cell<bool>,
+    /// Set when the date column's header says its times are UTC (`Date (UTC)`).
+    dates_in_utc: bool,
 }
 
 impl Table {
@@ -217,6 +219,7 @@ impl Table {
             thousands: Cell::new(false),
             timestamps: Cell::new(false),
             utc_converted: Cell::new(false),
+            dates_in_utc: false,
         }
     }
 
@@ -626,6 +629,7 @@ fn read_records(
     let mut columns = BTreeMap::new();
     let mut units = BTreeMap::new();
     let mut renamed = Vec::new();
+    let mut dates_in_utc = false;
     let mut usable = true;
     let mut extra = Vec::new();
     for (i, name) in written.iter().enumerate() {
@@ -669,6 +673,10 @@ fn read_records(
                 }
                 if key != c && header_key(name).0 != c {
                     renamed.push((name.clone(), c));
+                }
+                // `Date (UTC)`, `Timestamp (GMT)`: times written without an offset are UTC.
+                if c == "date" && matches!(unit.as_deref(), Some("utc" | "gmt" | "z")) {
+                    dates_in_utc = true;
                 }
                 if let Some(u) = unit
                     && let Some((_, allowed, _)) = spec.header_units.iter().find(|h| h.0 == c)
@@ -779,6 +787,7 @@ fn read_records(
         units,
         renamed,
         header_line,
+        dates_in_utc,
         ..Table::empty(delimiter, sniffed)
     };
     let mut records = 0usize;
@@ -1119,7 +1128,7 @@ impl Cells<'_> {
             // Pushes the "is empty" warning.
             return self.required_text(col, diags).and(None);
         };
-        match parse_when(s, self.opts) {
+        match parse_when(s, self.opts).map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
                     self.table.timestamps.set(true);
@@ -1162,6 +1171,28 @@ impl Cells<'_> {
                 );
                 None
             }
+        }
+    }
+
+    /// A time written without an offset under a header that says UTC (`Date (UTC)`), taken as
+    /// UTC like `…Z` (converted to `input.time_zone` when set); it was read as local time, so a
+    /// late-evening UTC weigh-in counted on the day before its local one, without a word.
+    fn utc_by_header(&self, s: &str, w: When) -> When {
+        let Some(time) = w.time else { return w };
+        // An offset or `Z` after the hours (`23:30+08:00`, `23:30Z`) was read already.
+        let after_time = s.find(':').map_or("", |i| &s[i..]);
+        if !self.table.dates_in_utc || w.from_utc || after_time.contains(['+', '-', 'Z', 'z']) {
+            return w;
+        }
+        let naive = w.date.and_time(time);
+        let local = match &self.opts.time_zone {
+            Some(z) => z.local(naive.and_utc().fixed_offset()),
+            None => naive,
+        };
+        When {
+            date: local.date(),
+            time: Some(local.time()),
+            from_utc: true,
         }
     }
 
@@ -1575,6 +1606,63 @@ mod tests {
         );
         assert!(parse_when("2027-02-30T07:00:00Z", &opts).is_none());
         assert!(LocalZone::parse("Mars/Olympus").is_none());
+    }
+
+    #[test]
+    fn a_date_header_that_says_utc_makes_its_times_utc() {
+        // `Date (UTC)` with times without an offset: 23:30 UTC is 07:30 the next day in
+        // Singapore; it counted on the day before, as local time.
+        let sg = CsvOptions {
+            time_zone: LocalZone::parse("Asia/Singapore"),
+            ..Default::default()
+        };
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text = "Date (UTC),weight,unit\n2026-09-01 23:30,70,kg\n2026-09-03T23:30:00+08:00,70,kg\n2026-09-04 06:00,70,kg\n";
+        let t = read_table(text, &SPEC, &sg, &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        let days: Vec<(String, Option<String>)> = t
+            .rows
+            .iter()
+            .map(|row| {
+                let c = Cells {
+                    table: &t,
+                    row,
+                    ctx: &ctx,
+                    opts: &sg,
+                };
+                let w = c.when("date", &mut d).unwrap();
+                (w.date.to_string(), w.time.map(|x| x.to_string()))
+            })
+            .collect();
+        assert_eq!(
+            days,
+            [
+                ("2026-09-02".to_string(), Some("07:30:00".to_string())),
+                // Its own offset is kept: the day as written.
+                ("2026-09-03".to_string(), Some("23:30:00".to_string())),
+                ("2026-09-04".to_string(), Some("14:00:00".to_string())),
+            ]
+        );
+        // Without the word in the header, times without an offset are local (as before).
+        let t = read_table(
+            &text.replace("Date (UTC)", "Date"),
+            &SPEC,
+            &sg,
+            &ctx,
+            &mut d,
+        )
+        .unwrap();
+        let c = Cells {
+            table: &t,
+            row: &t.rows[0],
+            ctx: &ctx,
+            opts: &sg,
+        };
+        assert_eq!(
+            c.when("date", &mut d).unwrap().date.to_string(),
+            "2026-09-01"
+        );
     }
 
     #[test]
