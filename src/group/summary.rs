@@ -797,7 +797,9 @@ pub(super) fn build(
                 .entry(
                     r.groups
                         .get(key)
-                        .map(|v| spelling[&spaced(v).to_lowercase()].clone()),
+                        .map(|v| spelling[&spaced(v).to_lowercase()].clone())
+                        // An empty value (`site: ""`) is not recorded, not a group named "".
+                        .filter(|v| !v.is_empty()),
                 )
                 .or_default()
                 .push(r);

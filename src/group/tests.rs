@@ -550,6 +550,14 @@ fn site_values_written_with_other_case_or_spacing_are_one_group() {
     for i in 0..15 {
         rows.push(person("Kiln Row", 90.0 + i as f64, Some(88.0 + i as f64)));
     }
+    // An empty value is "(not recorded)", not a site called "" (a heading "Site: ").
+    for i in 0..12 {
+        let mut p = person("", 60.0 + i as f64, Some(59.0 + i as f64));
+        if i % 2 == 0 {
+            p.groups.clear();
+        }
+        rows.push(p);
+    }
     let r = summarize(&rows, &opts(11, &["site"]));
     let labels: Vec<(&str, u64)> = r.splits[0]
         .sections
@@ -561,7 +569,14 @@ fn site_values_written_with_other_case_or_spacing_are_one_group() {
             )
         })
         .collect();
-    assert_eq!(labels, [("Kiln Row", 15), ("North Plant", 20)]);
+    assert_eq!(
+        labels,
+        [
+            ("(not recorded)", 12),
+            ("Kiln Row", 15),
+            ("North Plant", 20)
+        ]
+    );
     check(&rows, &opts(11, &["site"]));
 }
 
