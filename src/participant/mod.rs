@@ -135,6 +135,13 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
             continue;
         }
         match raw_name.to_str() {
+            Some(id) if is_plain_id(id) && is_device_name(id) => diags.push(
+                Diagnostic::error(rel, "the folder name is a device name on Windows; the folder is skipped")
+                    .participant(id)
+                    .expected("a participant id that is not CON, PRN, AUX, NUL, COM1–COM9 or LPT1–LPT9 (in any case)")
+                    .found(format!("`{id}`"))
+                    .hint("the id names the participant's report files, and on a Windows share `CON.html` cannot be written (the run would fail for everyone): rename the folder and the `id` in its profile.yaml"),
+            ),
             Some(id) if is_plain_id(id) => {
                 dirs.push(ParticipantDir { id: id.to_string(), path: entry.into_path() })
             }
@@ -192,6 +199,16 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         );
     }
     (dirs, diags)
+}
+
+/// Whether `id` is a name Windows reserves for a device, with or without an extension
+/// (Microsoft, "Naming Files, Paths, and Namespaces"): `CON.html` cannot be created there.
+fn is_device_name(id: &str) -> bool {
+    let upper = id.to_ascii_uppercase();
+    matches!(upper.as_str(), "CON" | "PRN" | "AUX" | "NUL")
+        || ((upper.starts_with("COM") || upper.starts_with("LPT"))
+            && upper.len() == 4
+            && matches!(upper.as_bytes()[3], b'1'..=b'9'))
 }
 
 /// Whether a discovery diagnostic concerns the participants folder as a whole (missing,

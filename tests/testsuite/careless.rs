@@ -252,3 +252,29 @@ fn input_files_named_in_other_case_are_read() {
         ]
     );
 }
+
+#[test]
+fn a_participant_named_like_a_windows_device_is_left_out() {
+    let t = demo(3);
+    let out = out_dir(&t);
+    // `Com1`: its report `Com1.html` cannot be created on a Windows share, which failed the
+    // whole run (exit 6) there.
+    let folder = t.dir.join("participants/Com1");
+    fs::rename(t.dir.join("participants/SG-003"), &folder).unwrap();
+    let profile = folder.join("profile.yaml");
+    let p = fs::read_to_string(&profile).unwrap();
+    fs::write(&profile, p.replace("id: SG-003", "id: Com1")).unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check
+            .stdout
+            .contains("participants/Com1: the folder name is a device name on Windows"),
+        "{}",
+        check.stdout
+    );
+    let o = run(&t, "html");
+    assert_eq!(o.code, 4, "{o:?}");
+    assert!(out.join("participants/SG-001.html").exists());
+    assert!(!out.join("participants/Com1.html").exists());
+}
