@@ -147,6 +147,34 @@ impl Ledger {
     /// it.
     pub fn open(dir: &Path) -> std::io::Result<Ledger> {
         std::fs::create_dir_all(dir).map_err(|e| io_err(dir, e))?;
+        // A folder of its own: `--state ~` or `--state .` put the ledger's files among other
+        // people's (and read any `ledger.json` found there as ours).
+        let mut foreign: Vec<String> = std::fs::read_dir(dir)
+            .map_err(|e| io_err(dir, e))?
+            .filter_map(Result::ok)
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .filter(|n| {
+                ![LEDGER_FILE, KEY_FILE, LOCK_FILE, "ledger.tmp", "secret.tmp"]
+                    .contains(&n.as_str())
+            })
+            .collect();
+        if !foreign.is_empty() {
+            foreign.sort();
+            let shown: Vec<String> = foreign.iter().take(5).map(|n| format!("`{n}`")).collect();
+            return Err(io_err(
+                dir,
+                format!(
+                    "holds {}{} besides a ledger's files; the ledger needs a folder of its own \
+                     (name a new one with --state or report.state_dir)",
+                    shown.join(", "),
+                    if foreign.len() > 5 {
+                        format!(" and {} more", foreign.len() - 5)
+                    } else {
+                        String::new()
+                    }
+                ),
+            ));
+        }
         let lock_path = dir.join(LOCK_FILE);
         let lock = std::fs::File::options()
             .create(true)

@@ -387,3 +387,39 @@ fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
         o.stderr
     );
 }
+
+#[test]
+fn the_ledger_needs_a_folder_of_its_own() {
+    let t = ProgramTest::fixture("report-small");
+    // `--state` naming a folder of other things (the home folder, say): the ledger's files
+    // were created among them, and a `ledger.json` of someone else's was read as ours.
+    let home = t.dir.parent().unwrap().join("home");
+    std::fs::create_dir(&home).unwrap();
+    std::fs::write(home.join("notes.txt"), "mine\n").unwrap();
+    let home_s = home.to_string_lossy().into_owned();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--state",
+        &home_s,
+    ]);
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr.contains(
+            "holds `notes.txt` besides a ledger's files; the ledger needs a folder of its own"
+        ),
+        "{}",
+        o.stderr
+    );
+    let mut names: Vec<String> = std::fs::read_dir(&home)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert_eq!(names, ["notes.txt"], "nothing was added");
+    assert!(!t.dir.join("reports").exists(), "nothing was published");
+}
