@@ -31,6 +31,10 @@ pub const MAX_CSV_ROWS: usize = 50_000;
 pub const MAX_CSV_COLUMNS: usize = 256;
 /// Longest CSV field, in bytes (a note or a label; longer rows are dropped with a warning).
 pub const MAX_CSV_FIELD_BYTES: usize = 4096;
+/// Most worker threads a run starts (`--jobs`): each is a thread with its own stack, and a
+/// typo (`--jobs 1000000`) made the run spend a minute creating threads until memory ran out,
+/// then abort (common practice: far above the cores of any machine this runs on).
+pub const MAX_JOBS: usize = 512;
 /// Diagnostics of one kind kept per file; the rest are counted in one summary line.
 pub const MAX_DIAGNOSTICS_PER_KIND: usize = 20;
 

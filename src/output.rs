@@ -240,6 +240,9 @@ fn existing_output(dir: &Path) -> Result<Existing, String> {
             Some("shard") => OutputScope::Shard,
             _ => OutputScope::Complete,
         };
+        if let Some(found) = unlisted_files(dir, &m) {
+            return Err(found);
+        }
         return Ok(Existing::Ours(scope));
     }
     if let Some(s) = json("shard.json")
@@ -252,6 +255,91 @@ fn existing_output(dir: &Path) -> Result<Existing, String> {
         return Ok(Existing::Ours(OutputScope::Shard));
     }
     Err("it is not empty and holds no cohortpress manifest.json".into())
+}
+
+/// The end of the message about files in an output that its manifest does not list.
+const UNLISTED_ADVICE: &str =
+    "a run replaces the folder as a whole and would delete them: move them out of the folder";
+
+/// Files a file manager leaves in any folder it shows (Finder, Explorer, Dolphin): nothing of
+/// anyone's is lost when they go with the folder.
+fn is_folder_litter(name: &str) -> bool {
+    matches!(
+        name,
+        ".DS_Store" | "Thumbs.db" | "desktop.ini" | ".directory"
+    ) || name.starts_with("._")
+}
+
+/// What an earlier output holds that its manifest does not list: files someone put there (last
+/// month's group report kept in an `archive/` folder, notes) or links. A run replaces the folder
+/// as a whole, so they would be deleted with it; `Some` names them. Folders count by what they
+/// hold (an empty one holds nothing to lose); the manifest itself, a staging marker left by a
+/// run stopped at its very end, and file managers' litter are not counted.
+fn unlisted_files(dir: &Path, manifest: &serde_json::Value) -> Option<String> {
+    let listed: std::collections::HashSet<&str> = manifest["outputs"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .filter_map(|o| o["path"].as_str())
+        .collect();
+    let mut found = Vec::new();
+    let mut count = 0usize;
+    for entry in walkdir::WalkDir::new(dir)
+        .min_depth(1)
+        .follow_links(false)
+        .sort_by_file_name()
+    {
+        let (rel, unlisted) = match &entry {
+            Ok(e) => {
+                // The manifest's form: components joined by `/` (a `\` in a name stays).
+                let rel = e
+                    .path()
+                    .strip_prefix(dir)
+                    .unwrap_or(e.path())
+                    .components()
+                    .map(|c| c.as_os_str().to_string_lossy())
+                    .collect::<Vec<_>>()
+                    .join("/");
+                let name = e.file_name().to_string_lossy();
+                let ours = e.file_type().is_dir()
+                    || (e.depth() == 1 && (name == "manifest.json" || name == STAGING_MARKER))
+                    || listed.contains(rel.as_str())
+                    || (e.file_type().is_file() && is_folder_litter(&name));
+                (rel, !ours)
+            }
+            // What cannot be listed cannot be known to be ours.
+            Err(e) => (
+                e.path().map_or_else(
+                    || "?".to_string(),
+                    |p| {
+                        p.strip_prefix(dir)
+                            .unwrap_or(p)
+                            .to_string_lossy()
+                            .into_owned()
+                    },
+                ),
+                true,
+            ),
+        };
+        if unlisted {
+            count += 1;
+            if found.len() < 5 {
+                found.push(format!("`{}`", crate::diag::printable(&rel)));
+            }
+        }
+    }
+    (count > 0).then(|| {
+        let more = if count > found.len() {
+            format!(" and {} more", count - found.len())
+        } else {
+            String::new()
+        };
+        format!(
+            "it holds a previous cohortpress output, but also {}{more} that the output's \
+             manifest.json does not list (put there since, or links); {UNLISTED_ADVICE}",
+            found.join(", ")
+        )
+    })
 }
 
 /// Whether `dir` is a real folder (not a link) that is empty or holds one of our outputs: the
@@ -386,10 +474,16 @@ fn check_replaceable(out_dir: &Path, target: &OutputTarget) -> Result<(), Stagin
             }
             Ok(Existing::Ours(_)) => {}
             Err(found) => {
+                // The files of someone else's in an output of ours say what to do already.
+                let advice = if found.ends_with(UNLISTED_ADVICE) {
+                    ""
+                } else {
+                    ". A run replaces its output folder as a whole, so it only writes to a new \
+                     folder, an empty one, or one a previous run wrote; check the path, or name \
+                     a new folder"
+                };
                 return Err(StagingError::Refused(format!(
-                    "refusing to write the output to {} ({}): {found}. A run replaces its \
-                         output folder as a whole, so it only writes to a new folder, an empty \
-                         one, or one a previous run wrote; check the path, or name a new folder",
+                    "refusing to write the output to {} ({}): {found}{advice}",
                     out_dir.display(),
                     target.named_by
                 )));

@@ -60,6 +60,9 @@ pub struct DemoSummary {
     pub bytes: u64,
 }
 
+/// Most participants a demo program may have (ten times the benchmark's largest program).
+pub const MAX_DEMO_PARTICIPANTS: usize = 100_000;
+
 /// Writes a demo program into `out`.
 ///
 /// `out` may be missing, empty, or a previous demo program (its program.yaml starts with
@@ -68,12 +71,25 @@ pub struct DemoSummary {
 /// [`io::ErrorKind::AlreadyExists`], so the generator can never overwrite a real program.
 ///
 /// # Errors
-/// `InvalidInput` for zero participants, `AlreadyExists` as above, and any I/O error.
+/// `InvalidInput` for zero participants or more than [`MAX_DEMO_PARTICIPANTS`], `AlreadyExists`
+/// as above, and any I/O error.
 pub fn generate(out: &Path, opts: &DemoOptions) -> io::Result<DemoSummary> {
     if opts.participants == 0 {
         return Err(io::Error::new(
             io::ErrorKind::InvalidInput,
             "a demo program needs at least one participant",
+        ));
+    }
+    // Every participant's plan is made before anything is written: a typo of a count
+    // (100000000) held about 800 MB and ran for minutes before writing a file.
+    if opts.participants > MAX_DEMO_PARTICIPANTS {
+        return Err(io::Error::new(
+            io::ErrorKind::InvalidInput,
+            format!(
+                "a demo program has at most {} participants, found {}",
+                crate::diag::thousands(MAX_DEMO_PARTICIPANTS),
+                crate::diag::thousands(opts.participants)
+            ),
         ));
     }
     prepare_folder(out)?;

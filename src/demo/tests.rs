@@ -629,6 +629,21 @@ fn refuses_a_folder_that_is_not_a_demo() {
         },
     );
     assert_eq!(err.unwrap_err().kind(), io::ErrorKind::InvalidInput);
+    // A typo of a count: planned in memory (about 800 MB at 100 million) before any file.
+    let err = generate(
+        &dir.path().join("huge"),
+        &DemoOptions {
+            participants: MAX_DEMO_PARTICIPANTS + 1,
+            ..DemoOptions::default()
+        },
+    )
+    .unwrap_err();
+    assert_eq!(err.kind(), io::ErrorKind::InvalidInput);
+    assert_eq!(
+        err.to_string(),
+        "a demo program has at most 100,000 participants, found 100,001"
+    );
+    assert!(!dir.path().join("huge").exists());
 }
 
 #[test]

@@ -9,7 +9,10 @@
 //! - `ledger.json`: one entry per release (program id, period, as-of date): every exact count it
 //!   printed as the set of person tokens counted, every mean printed with its n as the list of
 //!   (person token, value key) it sums — value keys are hashes, no value is stored — and the
-//!   whole program's headline figures as printed, for the month-over-month table.
+//!   whole program's headline figures as printed, for the month-over-month table, and a keyed
+//!   hash of a fixed text ([`key_check`]) that tells whether `secret.key` is the key it was
+//!   written with. A ledger with releases is never given a new key: a missing or different key
+//!   is an error (under another key no earlier count would link to anyone).
 //!
 //! Writes replace the file atomically (temporary file, then rename). An identical release
 //! (same period and the same published facts, e.g. a re-run) is recorded once. A run holds an
@@ -49,6 +52,19 @@ pub struct ReleaseRecord {
     pub count_labels: Vec<String>,
     /// Sums: (person token, value key) pairs.
     pub sums: Vec<Vec<(u64, u64)>>,
+    /// A keyed hash of a fixed text under the key the tokens were made with (see
+    /// [`key_check`]): tells a key that does not belong to the ledger. Empty in older ledgers.
+    #[serde(default)]
+    pub key_check: String,
+}
+
+/// What a key gives for a fixed text: stored with each release, so a `secret.key` restored
+/// from another backup (or another program's) is told from the right one. It reveals nothing
+/// of the key (a keyed hash, blake3).
+pub fn key_check(secret: &[u8; 32]) -> String {
+    blake3::keyed_hash(secret, b"cohortpress group ledger key check")
+        .to_hex()
+        .to_string()
 }
 
 #[derive(Debug, Default, Serialize, Deserialize)]
@@ -131,6 +147,34 @@ impl Ledger {
     /// it.
     pub fn open(dir: &Path) -> std::io::Result<Ledger> {
         std::fs::create_dir_all(dir).map_err(|e| io_err(dir, e))?;
+        // A folder of its own: `--state ~` or `--state .` put the ledger's files among other
+        // people's (and read any `ledger.json` found there as ours).
+        let mut foreign: Vec<String> = std::fs::read_dir(dir)
+            .map_err(|e| io_err(dir, e))?
+            .filter_map(Result::ok)
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .filter(|n| {
+                ![LEDGER_FILE, KEY_FILE, LOCK_FILE, "ledger.tmp", "secret.tmp"]
+                    .contains(&n.as_str())
+            })
+            .collect();
+        if !foreign.is_empty() {
+            foreign.sort();
+            let shown: Vec<String> = foreign.iter().take(5).map(|n| format!("`{n}`")).collect();
+            return Err(io_err(
+                dir,
+                format!(
+                    "holds {}{} besides a ledger's files; the ledger needs a folder of its own \
+                     (name a new one with --state or report.state_dir)",
+                    shown.join(", "),
+                    if foreign.len() > 5 {
+                        format!(" and {} more", foreign.len() - 5)
+                    } else {
+                        String::new()
+                    }
+                ),
+            ));
+        }
         let lock_path = dir.join(LOCK_FILE);
         let lock = std::fs::File::options()
             .create(true)
@@ -149,17 +193,6 @@ impl Ledger {
             }
             Err(std::fs::TryLockError::Error(e)) => return Err(io_err(&lock_path, e)),
         }
-        let key_path = dir.join(KEY_FILE);
-        let secret = match std::fs::read(&key_path) {
-            Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
-            Ok(_) => return Err(io_err(&key_path, "not a 32-byte key")),
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
-                let key = fresh_key();
-                write_atomic(&key_path, &key)?;
-                key
-            }
-            Err(e) => return Err(io_err(&key_path, e)),
-        };
         let ledger_path = dir.join(LEDGER_FILE);
         let mut new = false;
         let releases = match std::fs::read(&ledger_path) {
@@ -180,6 +213,49 @@ impl Ledger {
             }
             Err(e) => return Err(io_err(&ledger_path, e)),
         };
+        let key_path = dir.join(KEY_FILE);
+        let secret = match std::fs::read(&key_path) {
+            Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
+            Ok(_) => return Err(io_err(&key_path, "not a 32-byte key")),
+            // A ledger whose key is lost cannot link anyone to its releases: with a new key
+            // every earlier count would look like other people, and the audit across releases
+            // would pass anything while the report still listed them.
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound && !releases.is_empty() => {
+                return Err(io_err(
+                    &key_path,
+                    format!(
+                        "missing, while {} records {} earlier release{}: without its key they \
+                         cannot be audited against; restore {KEY_FILE} from the backup taken \
+                         with the ledger, or move the folder away to start a new ledger \
+                         (then earlier reports are not audited against)",
+                        LEDGER_FILE,
+                        releases.len(),
+                        if releases.len() == 1 { "" } else { "s" }
+                    ),
+                ));
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                let key = fresh_key();
+                write_atomic(&key_path, &key)?;
+                key
+            }
+            Err(e) => return Err(io_err(&key_path, e)),
+        };
+        let check = key_check(&secret);
+        if let Some(r) = releases
+            .iter()
+            .find(|r| !r.key_check.is_empty() && r.key_check != check)
+        {
+            return Err(io_err(
+                &key_path,
+                format!(
+                    "not the key {LEDGER_FILE} was written with (its release for {} to {} was \
+                     recorded under another key): restore the {KEY_FILE} that was backed up \
+                     with this {LEDGER_FILE}",
+                    r.period_from, r.period_to
+                ),
+            ));
+        }
         Ok(Ledger {
             dir: dir.to_path_buf(),
             secret,
@@ -237,7 +313,8 @@ impl Ledger {
     }
 
     /// Records a release (once: an identical release is not added again) and saves.
-    pub fn record(&mut self, release: ReleaseRecord) -> std::io::Result<()> {
+    pub fn record(&mut self, mut release: ReleaseRecord) -> std::io::Result<()> {
+        release.key_check = key_check(&self.secret);
         if self.releases.contains(&release) {
             return Ok(());
         }
@@ -270,6 +347,7 @@ pub fn release_record(
         counts: published.counts,
         count_labels: published.count_labels,
         sums: published.sums,
+        key_check: String::new(),
     }
 }
 

@@ -764,10 +764,43 @@ pub(super) fn build(
     // Sections of each split, with the merge rule for small groups.
     let mut splits: Vec<(String, Vec<Draft>, Option<String>)> = Vec::new();
     for key in &opts.group_by {
+        // Values written with other case or spacing (`North Plant`, `north  plant`) are one
+        // group, shown as its most common spelling (spaces collapsed; of equally common ones,
+        // the first in sort order): split by the exact text, one site was shown as two, each
+        // with part of its people. (The audit links figures by who they count, not by label.)
+        let spaced = |v: &str| v.split_whitespace().collect::<Vec<_>>().join(" ");
+        let mut spellings: BTreeMap<String, BTreeMap<String, usize>> = BTreeMap::new();
+        for v in enrolled.iter().filter_map(|r| r.groups.get(key)) {
+            let written = spaced(v);
+            *spellings
+                .entry(written.to_lowercase())
+                .or_default()
+                .entry(written)
+                .or_default() += 1;
+        }
+        let spelling: BTreeMap<String, String> = spellings
+            .into_iter()
+            .map(|(folded, counts)| {
+                let mut best: Option<(&String, usize)> = None;
+                for (w, &n) in &counts {
+                    if best.is_none_or(|(_, m)| n > m) {
+                        best = Some((w, n));
+                    }
+                }
+                let shown = best.map(|(w, _)| w.clone()).unwrap_or_default();
+                (folded, shown)
+            })
+            .collect();
         let mut by_value: BTreeMap<Option<String>, Vec<&ParticipantSummary>> = BTreeMap::new();
         for r in &enrolled {
             by_value
-                .entry(r.groups.get(key).cloned())
+                .entry(
+                    r.groups
+                        .get(key)
+                        .map(|v| spelling[&spaced(v).to_lowercase()].clone())
+                        // An empty value (`site: ""`) is not recorded, not a group named "".
+                        .filter(|v| !v.is_empty()),
+                )
                 .or_default()
                 .push(r);
         }

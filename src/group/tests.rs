@@ -534,6 +534,53 @@ fn three_sites_small_site_is_merged_and_nothing_is_recoverable() {
 }
 
 #[test]
+fn site_values_written_with_other_case_or_spacing_are_one_group() {
+    // 20 people at one site, 6 of whom wrote it differently: split by the exact text it was
+    // shown as a site of 14 and two "small groups" combined into "Other site groups".
+    let mut rows = Vec::new();
+    let written = ["north plant", "North  Plant", "NORTH PLANT"];
+    for i in 0..20 {
+        let site = if i < 14 {
+            "North Plant"
+        } else {
+            written[i % 3]
+        };
+        rows.push(person(site, 80.0 + i as f64, Some(78.0 + i as f64)));
+    }
+    for i in 0..15 {
+        rows.push(person("Kiln Row", 90.0 + i as f64, Some(88.0 + i as f64)));
+    }
+    // An empty value is "(not recorded)", not a site called "" (a heading "Site: ").
+    for i in 0..12 {
+        let mut p = person("", 60.0 + i as f64, Some(59.0 + i as f64));
+        if i % 2 == 0 {
+            p.groups.clear();
+        }
+        rows.push(p);
+    }
+    let r = summarize(&rows, &opts(11, &["site"]));
+    let labels: Vec<(&str, u64)> = r.splits[0]
+        .sections
+        .iter()
+        .map(|s| {
+            (
+                s.label.as_str(),
+                val(&s.stats.as_ref().unwrap().enrolment.started),
+            )
+        })
+        .collect();
+    assert_eq!(
+        labels,
+        [
+            ("(not recorded)", 12),
+            ("Kiln Row", 15),
+            ("North Plant", 20)
+        ]
+    );
+    check(&rows, &opts(11, &["site"]));
+}
+
+#[test]
 fn one_small_site_among_many_is_merged_with_the_next_smallest() {
     let mut rows = Vec::new();
     for (site, n) in [("A", 40), ("B", 15), ("C", 22), ("D", 3)] {

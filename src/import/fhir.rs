@@ -567,6 +567,33 @@ pub fn import(
                 )));
             }
         };
+        // Two patients whose ids differ only in case name one folder on many file systems
+        // (there the second could not be created, after the first was staged), and `run`
+        // leaves both out: refused before anything is written.
+        if let Some((other, _)) = plan
+            .iter()
+            .find(|(p, _): &&(String, _)| p.eq_ignore_ascii_case(&pid))
+        {
+            let fid_of = |p: &str| {
+                imp.patients
+                    .keys()
+                    .find(|f| match &map {
+                        Some(m) => m.get(*f).is_some_and(|q| q == p),
+                        None => f.as_str() == p,
+                    })
+                    .cloned()
+                    .unwrap_or_default()
+            };
+            return Err(usage(format!(
+                "FHIR patients `{}` and `{fid}` would both be participant `{pid}`{}; one participant folder holds one person: map them to different ids with --ids, or merge their records first",
+                fid_of(other),
+                if *other == pid {
+                    String::new()
+                } else {
+                    format!(" (and `{other}`, which differs only in case)")
+                }
+            )));
+        }
         let dir = base.join(&pid);
         if dir.exists() {
             return Err((

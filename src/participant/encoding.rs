@@ -78,9 +78,89 @@ pub fn decode_legacy(bytes: &[u8]) -> Result<(String, String), String> {
     Ok((out, shown.join(", ")))
 }
 
+/// Decodes a file that starts with a UTF-16 byte-order mark (`FF FE` little-endian, `FE FF`
+/// big-endian; Unicode Standard §3.10): what spreadsheets write as "Unicode text" and some
+/// clinic systems export. `None` without such a mark; otherwise the text (without the mark) and
+/// the byte order's name, or why it is refused: an odd number of bytes, a lone surrogate, or a
+/// control character other than tab and line ends (a UTF-32 file, or binary data).
+pub fn decode_utf16(bytes: &[u8]) -> Option<Result<(String, &'static str), String>> {
+    let (rest, little, order) = match bytes {
+        [0xFF, 0xFE, rest @ ..] => (rest, true, "UTF-16 little-endian"),
+        [0xFE, 0xFF, rest @ ..] => (rest, false, "UTF-16 big-endian"),
+        _ => return None,
+    };
+    Some((|| {
+        if rest.len() % 2 != 0 {
+            return Err(format!(
+                "the file starts as {order} text but has an odd number of bytes; it is cut off or not text"
+            ));
+        }
+        let units = rest.chunks_exact(2).map(|p| {
+            if little {
+                u16::from_le_bytes([p[0], p[1]])
+            } else {
+                u16::from_be_bytes([p[0], p[1]])
+            }
+        });
+        let mut out = String::with_capacity(rest.len() / 2);
+        for c in char::decode_utf16(units) {
+            let c = c.map_err(|e| {
+                format!(
+                    "the file starts as {order} text but holds a lone surrogate (0x{:04X})",
+                    e.unpaired_surrogate()
+                )
+            })?;
+            if c.is_control() && !matches!(c, '\t' | '\n' | '\r') {
+                return Err(format!(
+                    "the file starts as {order} text but holds control characters (U+{:04X}); it may be UTF-32 or binary",
+                    u32::from(c)
+                ));
+            }
+            out.push(c);
+        }
+        Ok((out, order))
+    })())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn utf16_with_a_byte_order_mark_decodes_and_without_one_is_left_alone() {
+        let text = "date\tweight\tunit\r\n2026-04-01\t72,5\tkg\r\nZoë\n";
+        let le: Vec<u8> = [0xFF, 0xFE]
+            .into_iter()
+            .chain(text.encode_utf16().flat_map(u16::to_le_bytes))
+            .collect();
+        let be: Vec<u8> = [0xFE, 0xFF]
+            .into_iter()
+            .chain(text.encode_utf16().flat_map(u16::to_be_bytes))
+            .collect();
+        assert_eq!(
+            decode_utf16(&le),
+            Some(Ok((text.to_string(), "UTF-16 little-endian")))
+        );
+        assert_eq!(
+            decode_utf16(&be),
+            Some(Ok((text.to_string(), "UTF-16 big-endian")))
+        );
+        assert_eq!(decode_utf16(text.as_bytes()), None);
+        // Cut off in the middle of a character, UTF-32 (its NULs), a lone surrogate.
+        assert!(decode_utf16(&le[..le.len() - 1]).unwrap().is_err());
+        assert!(
+            decode_utf16(b"\xFF\xFE\0\0d\0\0\0")
+                .unwrap()
+                .unwrap_err()
+                .contains("control")
+        );
+        assert!(
+            decode_utf16(b"\xFF\xFE\x00\xD8a\0")
+                .unwrap()
+                .unwrap_err()
+                .contains("surrogate")
+        );
+    }
 
     #[test]
     fn western_european_text_decodes() {

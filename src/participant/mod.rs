@@ -16,6 +16,7 @@ use crate::program::load::{decode_utf8, is_plain_id};
 use chrono::NaiveDate;
 use cohortpress_metric_api::ParticipantData;
 use records::Window;
+use std::collections::BTreeMap;
 use std::path::PathBuf;
 use table::{CsvOptions, FileCtx};
 
@@ -136,6 +137,13 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
             continue;
         }
         match raw_name.to_str() {
+            Some(id) if is_plain_id(id) && is_device_name(id) => diags.push(
+                Diagnostic::error(rel, "the folder name is a device name on Windows; the folder is skipped")
+                    .participant(id)
+                    .expected("a participant id that is not CON, PRN, AUX, NUL, COM1–COM9 or LPT1–LPT9 (in any case)")
+                    .found(format!("`{id}`"))
+                    .hint("the id names the participant's report files, and on a Windows share `CON.html` cannot be written (the run would fail for everyone): rename the folder and the `id` in its profile.yaml"),
+            ),
             Some(id) if is_plain_id(id) => {
                 dirs.push(ParticipantDir { id: id.to_string(), path: entry.into_path() })
             }
@@ -148,6 +156,38 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         }
     }
     dirs.sort();
+    // Ids that differ only in case (`LW-01`, `lw-01`) name the same output files on a
+    // case-insensitive file system (Windows and macOS shares, USB sticks): one report would be
+    // written over, or under the other's name. Most likely it is one person exported twice, so
+    // neither is reported (counted twice, the group report would count them twice).
+    let mut by_folded: BTreeMap<String, Vec<String>> = BTreeMap::new();
+    for d in &dirs {
+        by_folded
+            .entry(d.id.to_ascii_lowercase())
+            .or_default()
+            .push(d.id.clone());
+    }
+    let clashing: Vec<Vec<String>> = by_folded.into_values().filter(|v| v.len() > 1).collect();
+    for ids in &clashing {
+        let listed = ids
+            .iter()
+            .map(|i| format!("`{i}`"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        for id in ids {
+            diags.push(
+                Diagnostic::error(
+                    format!("{PARTICIPANTS_DIR}/{id}"),
+                    format!("participant folders {listed} differ only in upper and lower case; none of them is reported"),
+                )
+                .participant(id)
+                .expected("participant ids that differ in more than case (output files are named by the id, and many file systems do not tell case apart)")
+                .found(listed.clone())
+                .hint("keep one folder per person: merge the folders, or rename one of them and the `id` in its profile.yaml"),
+            );
+        }
+    }
+    dirs.retain(|d| !clashing.iter().any(|ids| ids.contains(&d.id)));
     if dirs.is_empty() && diags.is_empty() {
         // An empty folder is what an unmounted network share looks like: reporting on nobody
         // would replace last month's reports with empty ones.
@@ -161,6 +201,16 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         );
     }
     (dirs, diags)
+}
+
+/// Whether `id` is a name Windows reserves for a device, with or without an extension
+/// (Microsoft, "Naming Files, Paths, and Namespaces"): `CON.html` cannot be created there.
+fn is_device_name(id: &str) -> bool {
+    let upper = id.to_ascii_uppercase();
+    matches!(upper.as_str(), "CON" | "PRN" | "AUX" | "NUL")
+        || ((upper.starts_with("COM") || upper.starts_with("LPT"))
+            && upper.len() == 4
+            && matches!(upper.as_bytes()[3], b'1'..=b'9'))
 }
 
 /// Whether a discovery diagnostic concerns the participants folder as a whole (missing,
@@ -258,6 +308,21 @@ fn read_input(
         blake3: blake3::hash(&bytes).to_hex().to_string(),
         bytes: bytes.len() as u64,
     });
+    match encoding::decode_utf16(&bytes) {
+        Some(Ok((text, order))) => {
+            ctx.note(format!("read as {order} text"));
+            return Some(Ok(text));
+        }
+        Some(Err(why)) => {
+            diags.push(
+                ctx.error(format!("{why}; the file is not used"))
+                    .expected("UTF-8 or UTF-16 text")
+                    .hint("save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8)"),
+            );
+            return Some(Err(()));
+        }
+        None => {}
+    }
     match decode_utf8(&bytes, &ctx.file) {
         Ok(t) => Some(Ok(t.to_string())),
         Err(d) => match encoding::decode_legacy(&bytes) {
@@ -280,6 +345,33 @@ fn read_input(
                 Some(Err(()))
             }
         },
+    }
+}
+
+/// The name in the folder under which input `name` is read: `name` itself when it is there
+/// (or the folder could not be listed), else the one name that differs from it only in case
+/// (`Weights.csv`, `WEIGHTS.CSV`: some systems export so, and a case-insensitive file system
+/// would have opened it anyway). Two such names are ambiguous: neither is read.
+fn input_name(listing: Option<&[String]>, name: &str) -> String {
+    let Some(names) = listing else {
+        return name.to_string();
+    };
+    if names.iter().any(|n| n == name) {
+        return name.to_string();
+    }
+    let mut variants = names.iter().filter(|n| n.eq_ignore_ascii_case(name));
+    match (variants.next(), variants.next()) {
+        (Some(only), None) => only.clone(),
+        _ => name.to_string(),
+    }
+}
+
+/// Notes that an input was read under a name written in other case.
+fn note_case(ctx: &FileCtx, name: &str, ours: &str) {
+    if name != ours {
+        ctx.note(format!(
+            "`{name}` read as `{ours}` (the name differs only in case)"
+        ));
     }
 }
 
@@ -379,11 +471,20 @@ pub fn load_opened(
             listing = Some(names.clone());
         }
         names.sort();
+        // Input files written in other case (`Weights.csv`) are read as the inputs they name.
+        let read_as: Vec<String> = KNOWN_FILES
+            .iter()
+            .map(|k| input_name(Some(&names), k))
+            .collect();
         let mut stray = 0usize;
         for n in names {
             let lower = n.to_lowercase();
             let input_like = [".csv", ".yaml", ".yml"].iter().any(|x| lower.ends_with(x));
-            if input_like && !n.starts_with('.') && !KNOWN_FILES.contains(&n.as_str()) {
+            if input_like
+                && !n.starts_with('.')
+                && !KNOWN_FILES.contains(&n.as_str())
+                && !read_as.contains(&n)
+            {
                 stray += 1;
                 if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
                     continue;
@@ -417,11 +518,13 @@ pub fn load_opened(
         }
     }
 
-    let pctx = FileCtx::new(id, rel(PROFILE_FILE));
+    let profile_name = input_name(listing.as_deref(), PROFILE_FILE);
+    let pctx = FileCtx::new(id, rel(&profile_name));
+    note_case(&pctx, &profile_name, PROFILE_FILE);
     let mut enrolled_line = None;
     let profile = match read_input(
         &handle,
-        PROFILE_FILE,
+        &profile_name,
         listing.as_deref(),
         &pctx,
         &mut files,
@@ -453,14 +556,16 @@ pub fn load_opened(
     // Only the profile (and the folder) can make a participant unusable: a CSV file that
     // cannot be used is an error for that file, and the participant is reported without it.
     let profile_usable = !diags.iter().any(|d| d.severity == Severity::Error);
-    let mut notes = Vec::new();
+    let mut notes = pctx.take_notes();
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
-            let ctx = FileCtx::new(id, rel($spec.name));
+            let name = input_name(listing.as_deref(), $spec.name);
+            let ctx = FileCtx::new(id, rel(&name));
+            note_case(&ctx, &name, $spec.name);
             let first_diag = diags.len();
             let rows = match read_input(
                 &handle,
-                $spec.name,
+                &name,
                 listing.as_deref(),
                 &ctx,
                 &mut files,

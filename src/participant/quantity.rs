@@ -162,6 +162,83 @@ pub fn parse_decimal(s: &str) -> Result<f64, NumberError> {
     Ok(v + 0.0)
 }
 
+/// Reads a number written with thousands separators, as spreadsheets export formatted cells:
+/// `1.850,5` and `1,850.5` (both separators: the last one is the decimal separator), `1.234.567`
+/// or `1 850` (a separator used twice, or a space, can only group thousands). With
+/// `integer_valued` (kcal, steps: no log holds them to three decimals), a single separator
+/// followed by exactly three digits, `1.850` or `1,850`, groups thousands too. Groups must be
+/// of three digits after a first group of one to three (not starting with 0). `None` when `s`
+/// is not written so.
+pub fn parse_grouped(s: &str, integer_valued: bool) -> Option<f64> {
+    let s = s.trim();
+    let (negative, digits) = match s.strip_prefix('-') {
+        Some(rest) => (true, rest),
+        None => (false, s.strip_prefix('+').unwrap_or(s)),
+    };
+    // The common cases (`72.5`, `1850`) are answered without allocating: numeric cells are
+    // read by the hundred thousand when a large program is loaded.
+    let mut count = 0usize;
+    let mut last_at = 0usize;
+    for (i, b) in digits.bytes().enumerate() {
+        if !b.is_ascii_digit() {
+            count += 1;
+            last_at = i;
+        }
+    }
+    if count == 0
+        || (count == 1
+            && matches!(digits.as_bytes()[last_at], b'.' | b',')
+            && (!integer_valued || digits.len() - last_at - 1 != 3))
+    {
+        return None;
+    }
+    let seps: Vec<char> = digits.chars().filter(|c| !c.is_ascii_digit()).collect();
+    if seps.is_empty()
+        || seps
+            .iter()
+            .any(|c| !matches!(c, '.' | ',' | ' ' | '\u{a0}'))
+    {
+        return None;
+    }
+    let last = *seps.last()?;
+    let both = seps.iter().any(|&c| c != last);
+    // The decimal part, when the last separator is a decimal one.
+    let (int_part, frac) = if both && matches!(last, '.' | ',') {
+        let at = digits.rfind(last)?;
+        (&digits[..at], Some(&digits[at + 1..]))
+    } else {
+        (digits, None)
+    };
+    let group_seps: Vec<char> = int_part.chars().filter(|c| !c.is_ascii_digit()).collect();
+    let &group = group_seps.first()?;
+    if group_seps.iter().any(|&c| c != group) {
+        return None;
+    }
+    let groups: Vec<&str> = int_part.split(group).collect();
+    // A first group of 1–3 digits that does not start with 0 (`0.850` is a decimal).
+    let strict = (1..=3).contains(&groups[0].len())
+        && !groups[0].starts_with('0')
+        && groups[1..].iter().all(|g| g.len() == 3)
+        && groups.iter().all(|g| g.chars().all(|c| c.is_ascii_digit()));
+    if !strict {
+        return None;
+    }
+    if frac.is_some_and(|f| f.is_empty() || !f.chars().all(|c| c.is_ascii_digit())) {
+        return None;
+    }
+    // One `.` or `,` and nothing else: a thousands separator only for integer-valued columns.
+    if frac.is_none() && groups.len() == 2 && matches!(group, '.' | ',') && !integer_valued {
+        return None;
+    }
+    let mut text: String = groups.concat();
+    if let Some(f) = frac {
+        text.push('.');
+        text.push_str(f);
+    }
+    let v: f64 = text.parse().ok()?;
+    Some(if negative { -v } else { v })
+}
+
 /// Why a length could not be read.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct QuantityError {
@@ -308,6 +385,35 @@ mod tests {
         parse_length(s)
             .unwrap_or_else(|e| panic!("{s}: {e:?}"))
             .cm()
+    }
+
+    #[test]
+    fn thousands_separators_as_spreadsheets_export_them() {
+        // Both separators, a repeated one or spaces: thousands in any column.
+        assert_eq!(parse_grouped("1.850,5", false), Some(1850.5));
+        assert_eq!(parse_grouped("1,850.5", false), Some(1850.5));
+        assert_eq!(parse_grouped("-1.234.567", false), Some(-1_234_567.0));
+        assert_eq!(parse_grouped("12 500", false), Some(12_500.0));
+        // One `.` or `,` and three digits: thousands only where values are whole numbers.
+        assert_eq!(parse_grouped("1.850", true), Some(1850.0));
+        assert_eq!(parse_grouped("1,850", true), Some(1850.0));
+        assert_eq!(parse_grouped("72.500", false), None);
+        assert_eq!(parse_grouped("72,500", false), None);
+        // Not grouped: decimals, a first group of four or starting with 0, groups of two.
+        for s in [
+            "72.5",
+            "1850",
+            "0.850",
+            "0,850",
+            "1850.000",
+            "1.85",
+            "1.85.000",
+            "12,50,000",
+            "1.850,",
+            "a.850",
+        ] {
+            assert_eq!(parse_grouped(s, true), None, "{s}");
+        }
     }
 
     #[test]

@@ -7,7 +7,7 @@
 //! by date.
 
 use super::quantity::number_prefix_len;
-use super::table::{Cells, CsvOptions, Dropped, FileCtx, Table, read_table};
+use super::table::{Cells, CsvOptions, Dropped, FileCtx, Table, header_key, read_table};
 use crate::activities;
 use crate::diag::Diagnostic;
 pub use crate::program::files::{ACTIVITY, ALL_FILES, INTAKE, LABS, MET_RANGE, SESSIONS, WEIGHTS};
@@ -24,6 +24,10 @@ use std::fmt::Debug;
 /// Plausible body weight, kg (common practice: outside this range a value is a typing or unit
 /// error, not a person in a lifestyle program).
 pub const WEIGHT_KG_RANGE: (f64, f64) = (25.0, 350.0);
+/// An `Energy` column without a unit whose daily totals have a median above this many is read
+/// as kilojoules (refused until the header says which): adults' logged intake is rarely above
+/// 4,500 kcal a day, while 4,500 kJ is about 1,075 kcal (common practice).
+pub const KJ_LIKE_MEDIAN_KCAL: f64 = 4_500.0;
 /// Plausible logged intake per day, kcal: above 0 and at most this (common practice).
 pub const MAX_KCAL_PER_DAY: f64 = 10_000.0;
 /// Most minutes one activity row, or one day's rows together, can hold: 16 waking hours
@@ -617,6 +621,31 @@ pub fn parse_intake(
         }
     }
     let kcol = table.column("kcal");
+    // An `Energy` column without a unit: kcal in some exports, kJ in others (apps of
+    // kilojoule countries). Daily totals whose median is above what anyone logs in kcal are
+    // kJ; read as kcal they were taken as four times the intake, without a word.
+    if let Some(written) = table.written_as("kcal")
+        && header_key(written).0 == "energy"
+        && table.header_unit("kcal").is_none()
+        && days.len() >= 3
+    {
+        let mut totals: Vec<f64> = days.values().map(|d| d.kcal).collect();
+        let m = median(&mut totals);
+        if m > KJ_LIKE_MEDIAN_KCAL {
+            diags.push(
+                ctx.error(format!(
+                    "column `{written}` has no unit and its daily totals (median {}) look like kilojoules, not kcal; the file is not used",
+                    crate::diag::thousands(m.round() as usize)
+                ))
+                .at(table.header_line, kcol)
+                .field("kcal")
+                .expected(format!("kcal, with daily totals mostly below {}", crate::diag::thousands(KJ_LIKE_MEDIAN_KCAL as usize)))
+                .found(format!("`{written}`, median daily total {}", crate::diag::thousands(m.round() as usize)))
+                .hint(format!("write the unit in the header: `{written} (kJ)` or `{written} (kcal)`")),
+            );
+            return None;
+        }
+    }
     let mut out = Vec::new();
     for (date, day) in days {
         if day.kcal <= 0.0 || day.kcal > MAX_KCAL_PER_DAY {

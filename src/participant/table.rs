@@ -9,7 +9,7 @@
 //! (`input.columns`). Whatever was recognised rather than written our way is stated once per
 //! file as a [`Note`].
 
-use super::quantity::{NumberError, parse_decimal};
+use super::quantity::{NumberError, parse_decimal, parse_grouped};
 use crate::diag::Diagnostic;
 use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_ROWS};
 pub use crate::program::files::{FileSpec, LocalZone};
@@ -29,6 +29,10 @@ pub struct Note {
     /// What was recognised or decided.
     pub message: String,
 }
+
+/// Columns whose values are whole numbers in practice (energy, steps): a single `.` or `,`
+/// followed by three digits there groups thousands (see [`parse_grouped`]).
+const INTEGER_VALUED: [&str; 2] = ["kcal", "steps"];
 
 /// Where diagnostics go: the participant and the file (relative to the program folder).
 #[derive(Debug, Clone)]
@@ -122,6 +126,8 @@ pub struct Table {
     columns: BTreeMap<&'static str, usize>,
     /// Data rows with the header's number of fields.
     pub rows: Vec<Row>,
+    /// 1-based line of the header row.
+    pub header_line: u64,
     text: String,
     bounds: Vec<(usize, usize)>,
     /// Fields per row.
@@ -136,10 +142,14 @@ pub struct Table {
     renamed: Vec<(String, &'static str)>,
     /// Set when a number was read with a decimal comma.
     decimal_comma: Cell<bool>,
+    /// Set when a number was read with thousands separators.
+    thousands: Cell<bool>,
     /// Set when a date carried a time of day.
     timestamps: Cell<bool>,
     /// Set when a UTC time was converted to the local time zone.
     utc_converted: Cell<bool>,
+    /// Set when the date column's header says its times are UTC (`Date (UTC)`).
+    dates_in_utc: bool,
 }
 
 impl Table {
@@ -158,6 +168,15 @@ impl Table {
         let (a, b) = *self.bounds.get(row.first + i)?;
         let s = self.text[a..b].trim();
         (!s.is_empty()).then_some(s)
+    }
+
+    /// The header of `col` as written, when it was read under another name (`Energy` for
+    /// `kcal`).
+    pub fn written_as(&self, col: &str) -> Option<&str> {
+        self.renamed
+            .iter()
+            .find(|(_, c)| *c == col)
+            .map(|(w, _)| w.as_str())
     }
 
     /// The unit written in the header of `col` (`Weight (lb)` → `lb`), lowercase.
@@ -188,6 +207,7 @@ impl Table {
         Table {
             columns: BTreeMap::new(),
             rows: Vec::new(),
+            header_line: 1,
             text: String::new(),
             bounds: Vec::new(),
             width: 0,
@@ -196,8 +216,10 @@ impl Table {
             units: BTreeMap::new(),
             renamed: Vec::new(),
             decimal_comma: Cell::new(false),
+            thousands: Cell::new(false),
             timestamps: Cell::new(false),
             utc_converted: Cell::new(false),
+            dates_in_utc: false,
         }
     }
 
@@ -221,6 +243,12 @@ impl Table {
         }
         if !how.is_empty() {
             parts.push(format!("read as {how}"));
+        }
+        if self.thousands.get() {
+            parts.push(
+                "numbers with thousands separators read as whole thousands (`1.850` kcal = 1,850 kcal)"
+                    .to_string(),
+            );
         }
         if self.timestamps.get() {
             let mut s =
@@ -335,8 +363,9 @@ pub fn header_key(h: &str) -> (String, Option<String>) {
 /// first line into the most fields and splits the next lines (up to 20) into as many. `None`
 /// when the file has no line with any of them (one column: comma is as good as any).
 pub fn sniff_delimiter(text: &str) -> Option<u8> {
+    // Lines end with `\n`, `\r\n` or a lone `\r` (`str::lines` knows only the first two).
     let lines: Vec<&str> = text
-        .lines()
+        .split(['\n', '\r'])
         .filter(|l| !l.trim().is_empty())
         .take(21)
         .collect();
@@ -393,6 +422,70 @@ pub fn read_table(
         };
         read_records(reader, &file, diags)
     })
+    .and_then(|table| match day_month_swapped(&table, opts, ctx) {
+        Some(d) => {
+            diags.push(d);
+            None
+        }
+        None => Some(table),
+    })
+}
+
+/// A file whose dates are written with day and month the other way round from
+/// `input.date_format` (`03/04/2026` meant as 4 March in a program set to `%d/%m/%Y`): some of
+/// its dates fit only the swapped order (`03/14/2026`) and none fits only the program's. Read
+/// with the program's format, its rows up to the 12th of each month would be taken on the wrong
+/// day without a word (and the others dropped), so the file is refused, located at the first date
+/// that gives it away.
+fn day_month_swapped(table: &Table, opts: &CsvOptions, ctx: &FileCtx) -> Option<Diagnostic> {
+    let format = opts.date_format.as_str();
+    // Day and month before the year (`%d/%m/%Y`, `%m-%d-%y %H:%M`): the orders that are
+    // written both ways. A year-first date (ISO 8601, `%Y/%m/%d`) is month before day.
+    let at = |f: &str| format.find(f);
+    let year = at("%Y").or(at("%y"));
+    let (Some(d), Some(m), Some(y)) = (at("%d"), at("%m"), year) else {
+        return None;
+    };
+    if y < d.max(m) {
+        return None;
+    }
+    let swapped_format = format
+        .replace("%d", "\u{0}")
+        .replace("%m", "%d")
+        .replace("\u{0}", "%m");
+    let swapped = CsvOptions {
+        date_format: swapped_format.clone(),
+        ..opts.clone()
+    };
+    let (mut swap_only, mut misread) = (None, None);
+    for row in &table.rows {
+        let Some(s) = table.get(row, "date") else {
+            continue;
+        };
+        match (parse_when(s, opts), parse_when(s, &swapped)) {
+            (Some(_), None) => return None,
+            (None, Some(_)) => {
+                swap_only.get_or_insert((row.line, s));
+            }
+            (Some(a), Some(b)) if a.date != b.date => {
+                misread.get_or_insert((row.line, s));
+            }
+            _ => {}
+        }
+    }
+    let ((line, found), (mline, mfound)) = (swap_only?, misread?);
+    Some(
+        ctx.error(format!(
+            "the dates are written with day and month the other way round from `input.date_format` (`{format}`): line {line}'s `{found}` fits only `{swapped_format}`, and no date fits only `{format}`; dates such as line {mline}'s `{mfound}` would be read on the wrong day, so the file is not used"
+        ))
+        .at(line, table.column("date"))
+        .field("date")
+        .expected(format!("dates in the format `{format}`"))
+        .found(format!("`{found}`"))
+        .hint(format!(
+            "save the file with dates written `{format}` (or as ISO 8601, `2026-04-01`); if every file of the program is written `{swapped_format}`, set `input.date_format: \"{swapped_format}\"` in program.yaml"
+        )),
+    )
 }
 
 /// A CSV reader over a reusable buffer.
@@ -526,7 +619,13 @@ fn read_records(
             if b < from {
                 (from, line) = (0, 1);
             }
-            line += bytes[from..b].iter().filter(|&&c| c == b'\n').count() as u64;
+            // A line ends with `\n`, `\r\n` or a lone `\r` (the classic Mac ending some
+            // spreadsheets still write), as the csv reader ends records.
+            line += (from..b)
+                .filter(|&i| {
+                    bytes[i] == b'\n' || (bytes[i] == b'\r' && bytes.get(i + 1) != Some(&b'\n'))
+                })
+                .count() as u64;
             counted.set((b, line));
             line
         })
@@ -551,6 +650,7 @@ fn read_records(
     let mut columns = BTreeMap::new();
     let mut units = BTreeMap::new();
     let mut renamed = Vec::new();
+    let mut dates_in_utc = false;
     let mut usable = true;
     let mut extra = Vec::new();
     for (i, name) in written.iter().enumerate() {
@@ -594,6 +694,10 @@ fn read_records(
                 }
                 if key != c && header_key(name).0 != c {
                     renamed.push((name.clone(), c));
+                }
+                // `Date (UTC)`, `Timestamp (GMT)`: times written without an offset are UTC.
+                if c == "date" && matches!(unit.as_deref(), Some("utc" | "gmt" | "z")) {
+                    dates_in_utc = true;
                 }
                 if let Some(u) = unit
                     && let Some((_, allowed, _)) = spec.header_units.iter().find(|h| h.0 == c)
@@ -686,6 +790,15 @@ fn read_records(
     }
     // Extra columns are only worth a word when the header itself is right.
     diags.extend(extra);
+    // The last field a row must reach: rows that end early, before no required column, are
+    // read with the rest empty (exports leave off trailing empty values).
+    let last_required = spec
+        .required
+        .iter()
+        .filter_map(|c| columns.get(c))
+        .max()
+        .copied();
+    let (mut short_rows, mut trailing_empty) = (0usize, 0usize);
     let mut table = Table {
         columns,
         rows: Vec::new(),
@@ -694,6 +807,8 @@ fn read_records(
         width: names.len(),
         units,
         renamed,
+        header_line,
+        dates_in_utc,
         ..Table::empty(delimiter, sniffed)
     };
     let mut records = 0usize;
@@ -741,7 +856,20 @@ fn read_records(
             );
             continue;
         }
-        if rec.len() != names.len() {
+        let width = names.len();
+        let fits = if rec.len() > width {
+            // A delimiter at the end of each row (`2026-04-01,72,kg,`) gives empty extra fields.
+            let empty = rec.iter().skip(width).all(|f| f.trim().is_empty());
+            trailing_empty += usize::from(empty);
+            empty
+        } else if rec.len() < width {
+            let short = last_required.is_none_or(|r| r < rec.len());
+            short_rows += usize::from(short);
+            short
+        } else {
+            true
+        };
+        if !fits {
             let mut d = ctx
                 .warning(format!(
                     "row has {} fields but the header has {}; the row is dropped",
@@ -783,12 +911,35 @@ fn read_records(
             continue;
         }
         let first = table.bounds.len();
-        for f in &rec {
+        for f in rec.iter().take(width) {
             let start = table.text.len();
             table.text.push_str(f);
             table.bounds.push((start, table.text.len()));
         }
+        for _ in rec.len()..width {
+            let end = table.text.len();
+            table.bounds.push((end, end));
+        }
         table.rows.push(Row { line, first });
+    }
+    let rows = |n: usize| {
+        if n == 1 {
+            "1 row".to_string()
+        } else {
+            format!("{} rows", crate::diag::thousands(n))
+        }
+    };
+    if short_rows > 0 {
+        ctx.note(format!(
+            "{} with fewer fields than the header (values left off at the end) read with the missing values empty",
+            rows(short_rows)
+        ));
+    }
+    if trailing_empty > 0 {
+        ctx.note(format!(
+            "{} with empty fields after the last column (a delimiter at the end of the row) read without them",
+            rows(trailing_empty)
+        ));
     }
     Some(table)
 }
@@ -998,7 +1149,7 @@ impl Cells<'_> {
             // Pushes the "is empty" warning.
             return self.required_text(col, diags).and(None);
         };
-        match parse_when(s, self.opts) {
+        match parse_when(s, self.opts).map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
                     self.table.timestamps.set(true);
@@ -1044,6 +1195,28 @@ impl Cells<'_> {
         }
     }
 
+    /// A time written without an offset under a header that says UTC (`Date (UTC)`), taken as
+    /// UTC like `…Z` (converted to `input.time_zone` when set); it was read as local time, so a
+    /// late-evening UTC weigh-in counted on the day before its local one, without a word.
+    fn utc_by_header(&self, s: &str, w: When) -> When {
+        let Some(time) = w.time else { return w };
+        // An offset or `Z` after the hours (`23:30+08:00`, `23:30Z`) was read already.
+        let after_time = s.find(':').map_or("", |i| &s[i..]);
+        if !self.table.dates_in_utc || w.from_utc || after_time.contains(['+', '-', 'Z', 'z']) {
+            return w;
+        }
+        let naive = w.date.and_time(time);
+        let local = match &self.opts.time_zone {
+            Some(z) => z.local(naive.and_utc().fixed_offset()),
+            None => naive,
+        };
+        When {
+            date: local.date(),
+            time: Some(local.time()),
+            from_utc: true,
+        }
+    }
+
     /// A required number, with a message naming a decimal comma when there is one.
     pub fn number(&self, col: &str, diags: &mut Vec<Diagnostic>) -> Option<f64> {
         let s = self.required_text(col, diags)?;
@@ -1075,6 +1248,12 @@ impl Cells<'_> {
         consequence: &str,
         diags: &mut Vec<Diagnostic>,
     ) -> Option<f64> {
+        // Thousands separators, as formatted cells are exported (`1.850` kcal from a
+        // German-locale spreadsheet was read as 1.85 kcal, without a word).
+        if let Some(v) = parse_grouped(s, INTEGER_VALUED.contains(&col)) {
+            self.table.thousands.set(true);
+            return Some(v);
+        }
         match parse_decimal(s) {
             Ok(v) => Some(v),
             // Where the comma does not separate fields, it is the decimal separator of the
@@ -1151,6 +1330,83 @@ mod tests {
         );
     }
 
+    #[test]
+    fn dates_with_day_and_month_swapped_refuse_the_file() {
+        let dmy = CsvOptions {
+            date_format: "%d/%m/%Y".into(),
+            ..CsvOptions::default()
+        };
+        // Written month first: 03/04 (4 March) would be read as 3 April, 03/14 gives it away.
+        let us = "date,weight,unit\n03/02/2026,80,kg\n03/04/2026,79.8,kg\n03/14/2026,79.5,kg\n";
+        let (t, d) = read(us, &dmy);
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(4), Some(1)));
+        assert!(d[0].message.contains("`%m/%d/%Y`"), "{}", d[0]);
+        assert!(d[0].message.contains("line 2's `03/02/2026`"), "{}", d[0]);
+        // The same dates written day first are read, and one date that fits only the program's
+        // order settles it (a later date that fits only the other order is a typo, dropped).
+        let eu = "date,weight,unit\n02/03/2026,80,kg\n04/03/2026,79.8,kg\n14/03/2026,79.5,kg\n03/14/2026,79.5,kg\n";
+        let (t, d) = read(eu, &dmy);
+        assert_eq!(t.unwrap().rows.len(), 4);
+        assert!(d.is_empty(), "{d:?}");
+        // Only dates that read the same either way (4 April, ISO): nothing to refuse.
+        let same = "date,weight,unit\n04/04/2026,80,kg\n2026-04-05,79.8,kg\n";
+        let (t, d) = read(same, &dmy);
+        assert_eq!(t.unwrap().rows.len(), 2);
+        assert!(d.is_empty(), "{d:?}");
+    }
+
+    #[test]
+    fn rows_that_leave_off_trailing_empty_values_or_end_with_a_delimiter_are_read() {
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        // The header has a `source` column, rows without a source leave it off (lines 2, 4);
+        // line 3 ends with a delimiter; line 5 leaves off the required `unit` and is dropped;
+        // line 6 has a value after the last column and is dropped.
+        let text = "date,weight,unit,source\n2026-04-01,72,kg\n2026-04-02,71.8,kg,clinic,\n2026-04-03,71.5,kg\n2026-04-04,71\n2026-04-05,71,kg,home,x\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert_eq!(
+            t.rows.iter().map(|r| r.line).collect::<Vec<_>>(),
+            vec![2, 3, 4]
+        );
+        assert_eq!(t.get(&t.rows[0], "source"), None);
+        assert_eq!(t.get(&t.rows[1], "source"), Some("clinic"));
+        assert_eq!(t.get(&t.rows[2], "unit"), Some("kg"));
+        assert_eq!(
+            d.iter().map(|x| x.line).collect::<Vec<_>>(),
+            vec![Some(5), Some(6)],
+            "{d:?}"
+        );
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        assert_eq!(
+            notes,
+            [
+                "2 rows with fewer fields than the header (values left off at the end) read with the missing values empty",
+                "1 row with empty fields after the last column (a delimiter at the end of the row) read without them"
+            ]
+        );
+    }
+
+    #[test]
+    fn lone_cr_line_ends_count_lines_and_the_delimiter_is_recognised() {
+        // The classic Mac line end (`\r` alone), still written by some spreadsheet exports, in a
+        // semicolon file with decimal commas; line 4 has a field missing, line 6 a quoted
+        // field over two lines.
+        let (t, d) = read(
+            "date;weight;unit\r2026-04-01;72,5;kg\r\r2026-04-02;72\r2026-04-03;\"71,5\";kg\r2026-04-04;71;\"k\rg\"\r2026-04-05;70,5;kg\r",
+            &CsvOptions::default(),
+        );
+        let t = t.unwrap();
+        assert_eq!(t.delimiter, b';');
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].line, Some(4), "{}", d[0]);
+        assert_eq!(
+            t.rows.iter().map(|r| r.line).collect::<Vec<_>>(),
+            vec![2, 5, 6, 8]
+        );
+    }
     #[test]
     fn missing_column_is_an_error_naming_it() {
         let (t, d) = read("date,weight\n2026-04-01,72\n", &CsvOptions::default());
@@ -1410,6 +1666,63 @@ mod tests {
         );
         assert!(parse_when("2027-02-30T07:00:00Z", &opts).is_none());
         assert!(LocalZone::parse("Mars/Olympus").is_none());
+    }
+
+    #[test]
+    fn a_date_header_that_says_utc_makes_its_times_utc() {
+        // `Date (UTC)` with times without an offset: 23:30 UTC is 07:30 the next day in
+        // Singapore; it counted on the day before, as local time.
+        let sg = CsvOptions {
+            time_zone: LocalZone::parse("Asia/Singapore"),
+            ..Default::default()
+        };
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text = "Date (UTC),weight,unit\n2026-09-01 23:30,70,kg\n2026-09-03T23:30:00+08:00,70,kg\n2026-09-04 06:00,70,kg\n";
+        let t = read_table(text, &SPEC, &sg, &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        let days: Vec<(String, Option<String>)> = t
+            .rows
+            .iter()
+            .map(|row| {
+                let c = Cells {
+                    table: &t,
+                    row,
+                    ctx: &ctx,
+                    opts: &sg,
+                };
+                let w = c.when("date", &mut d).unwrap();
+                (w.date.to_string(), w.time.map(|x| x.to_string()))
+            })
+            .collect();
+        assert_eq!(
+            days,
+            [
+                ("2026-09-02".to_string(), Some("07:30:00".to_string())),
+                // Its own offset is kept: the day as written.
+                ("2026-09-03".to_string(), Some("23:30:00".to_string())),
+                ("2026-09-04".to_string(), Some("14:00:00".to_string())),
+            ]
+        );
+        // Without the word in the header, times without an offset are local (as before).
+        let t = read_table(
+            &text.replace("Date (UTC)", "Date"),
+            &SPEC,
+            &sg,
+            &ctx,
+            &mut d,
+        )
+        .unwrap();
+        let c = Cells {
+            table: &t,
+            row: &t.rows[0],
+            ctx: &ctx,
+            opts: &sg,
+        };
+        assert_eq!(
+            c.when("date", &mut d).unwrap().date.to_string(),
+            "2026-09-01"
+        );
     }
 
     #[test]

@@ -210,11 +210,7 @@ fn change_row(label: &str, c: &ChangeLine) -> Vec<String> {
 }
 
 /// Builds the group model.
-pub fn build(
-    plan: &Scope<'_>,
-    g: &GroupReport,
-    participants_with_errors: usize,
-) -> GroupReportModel {
+pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportModel {
     let mut charts = Vec::new();
     let mut sections = vec![section(
         plan,
@@ -234,8 +230,8 @@ pub fn build(
             sections.push(section(plan, s, &title, &anchor, &mut charts));
         }
     }
-    if participants_with_errors > 0 {
-        let n = participants_with_errors;
+    if left_out > 0 {
+        let n = left_out;
         notes.push(if n == 1 {
             "One participant folder could not be used because of input errors and is not counted here; the run's data-quality list (metrics/data-quality.csv) names the problems.".to_string()
         } else {

@@ -157,9 +157,9 @@ pub fn participant_context(
 pub fn group_context(
     plan: &Scope<'_>,
     group: &GroupReport,
-    participants_with_errors: usize,
+    left_out: usize,
 ) -> group::GroupReportModel {
-    group::build(plan, group, participants_with_errors)
+    group::build(plan, group, left_out)
 }
 
 /// Why rendering failed.

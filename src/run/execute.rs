@@ -308,10 +308,25 @@ pub fn finish(
             group_by: plan.program.def.report.group_by.clone(),
             confidence: 0.95,
         };
-        // Group-report ledger hook: audit against what earlier reports published, record after
-        // the outputs are in place.
+        // Group-report ledger hook: audit against what earlier reports published, record
+        // before the outputs are put in place (see below).
         let ledger = group::ledger::Ledger::open(&plan.state_dir)
             .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
+        // A new ledger beside an output that holds a group report of an earlier run: the
+        // ledger was deleted or moved (or the state folder changed), and the audit starts
+        // again from nothing while the sponsor keeps the earlier reports.
+        let earlier_group_report =
+            plan.out_dir.join("group").is_dir() && plan.out_dir.join("manifest.json").is_file();
+        if ledger.is_new() && earlier_group_report && plan.out_named_by != "--out" {
+            tracing::warn!(
+                "group-report ledger {}: a new ledger, but {} holds a group report of an \
+                 earlier run, which this one is not audited against; if its ledger was moved, \
+                 name it with --state (or report.state_dir), or a difference of two reports may \
+                 give away a small group's figures",
+                ledger.dir().display(),
+                plan.out_dir.display()
+            );
+        }
         if ledger.is_new() && plan.out_named_by == "--out" {
             tracing::warn!(
                 "group-report ledger {}: a new ledger, so this group report is audited against \
@@ -329,8 +344,12 @@ pub fn finish(
         let headline = report::group::headline(&g, &format!("{period_from} to {period_to}"));
         g.releases = ledger.earlier_headlines(&program_id, &period_to);
         g.releases.push(headline.clone());
-        let group_ctx =
-            report::group_context(&plan.report_scope(), &g, summary.participants_with_errors);
+        // Who the group report leaves out: participants without a report (an unusable
+        // profile) and folders skipped by name. A participant with one unusable file is still
+        // reported and counted, so `participants_with_errors` (which counts them too, for the
+        // exit code) is not this number.
+        let left_out = summary.participants - summary.reported + summary.skipped_folders;
+        let group_ctx = report::group_context(&plan.report_scope(), &g, left_out);
         let group_files = report::render_group(templates, &group_ctx, &plan.formats)
             .map_err(|e| RunError::Render(e.to_string()))?;
         for (name, bytes) in group_files {
@@ -380,12 +399,18 @@ pub fn finish(
     let manifest = super::manifest::manifest(plan, &inputs, &staging, &summary)
         .map_err(|e| RunError::Output(e.to_string()))?;
     staging.write("manifest.json", &manifest)?;
-    let outputs: OutputSet = staging.commit()?;
+    // The release is recorded before the swap: a group report in place but missing from the
+    // ledger (its write refused, or the run killed in between) was left out of every later
+    // audit, so next month's report could be differenced against it, and the run ended with
+    // exit 6 ("previous outputs left intact") over the new output. Recorded first, a failed
+    // write stops the run with the previous output in place; a swap that fails after it
+    // leaves a record of a report never published, which only makes later audits stricter.
     if let Some((mut ledger, record)) = release {
         ledger
             .record(record)
             .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
     }
+    let outputs: OutputSet = staging.commit()?;
     timing.commit_s = phase.elapsed().as_secs_f64();
     tracing::debug!("{} output files", outputs.files);
     Ok((summary, timing))

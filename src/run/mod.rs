@@ -39,7 +39,8 @@ pub struct RunSummary {
     pub participants: usize,
     /// Participants with a report.
     pub reported: usize,
-    /// Participants left out because of input errors.
+    /// Participants with an input error: left out (an unusable profile), or reported without a
+    /// file that could not be used.
     pub participants_with_errors: usize,
     /// Module failures (participant × module).
     pub module_failures: usize,

@@ -226,9 +226,16 @@ pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
         std::thread::available_parallelism()
             .map(|n| n.get())
             .unwrap_or(1)
+            .min(crate::limits::MAX_JOBS)
     });
     if jobs == 0 {
         return Err(usage("--jobs must be at least 1".into()));
+    }
+    if jobs > crate::limits::MAX_JOBS {
+        return Err(usage(format!(
+            "--jobs must be at most {} (one worker thread each), found {jobs}",
+            crate::limits::MAX_JOBS
+        )));
     }
     let key = run_key(&program, &modules, period, as_of, &formats)?;
     let state_dir =

@@ -213,3 +213,62 @@ fn a_program_exported_as_fhir_and_imported_gives_the_same_metrics() {
         "no clinic offset in tables.csv"
     );
 }
+
+/// Two FHIR patients whose participant ids differ only in case: they were written as two
+/// folders, which name one folder on case-insensitive file systems (there the import stopped
+/// with "File exists", naming neither) and which `run` leaves out.
+#[test]
+fn two_patients_for_one_participant_folder_are_refused_by_name() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let patient = |id: &str| json!({"resourceType": "Patient", "id": id, "gender": "female", "birthDate": "1980-01-01"});
+    let weight = |id: &str| {
+        json!({"resourceType": "Observation", "id": format!("{id}-w"), "status": "final",
+        "code": {"coding": [{"system": LOINC, "code": BODY_WEIGHT}]},
+        "subject": {"reference": format!("Patient/{id}")}, "effectiveDateTime": "2026-04-01",
+        "valueQuantity": {"value": 80.0, "system": "http://unitsofmeasure.org", "code": "kg"}})
+    };
+    let ndjson = |ids: &[&str]| {
+        ids.iter()
+            .flat_map(|i| [patient(i).to_string(), weight(i).to_string()])
+            .collect::<Vec<_>>()
+            .join("\n")
+    };
+    let bin = env!("CARGO_BIN_EXE_cohortpress");
+    let import = |file: &std::path::Path, out: &std::path::Path, ids: Option<&std::path::Path>| {
+        let mut c = std::process::Command::new(bin);
+        c.args(["import", "fhir"]).arg(file).arg("--out").arg(out);
+        if let Some(m) = ids {
+            c.arg("--ids").arg(m);
+        }
+        c.output().unwrap()
+    };
+    let file = dir.path().join("case.ndjson");
+    fs::write(&file, ndjson(&["SG-001", "sg-001"])).unwrap();
+    let out = dir.path().join("p1");
+    let o = import(&file, &out, None);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("FHIR patients `SG-001` and `sg-001` would both be participant `sg-001` (and `SG-001`, which differs only in case)"),
+        "{err}"
+    );
+    assert!(!out.join("participants").exists(), "nothing written");
+    // A map giving two FHIR ids participant ids that differ only in case.
+    fs::write(&file, ndjson(&["a1", "b2"])).unwrap();
+    let map = dir.path().join("map.csv");
+    fs::write(&map, "fhir_id,participant_id\na1,P-1\nb2,p-1\n").unwrap();
+    let out = dir.path().join("p2");
+    let o = import(&file, &out, Some(&map));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains(
+            "FHIR patients `a1` and `b2` would both be participant `p-1` (and `P-1`, which differs only in case);"
+        ),
+        "{err}"
+    );
+    assert!(
+        !out.exists() || fs::read_dir(&out).unwrap().next().is_none(),
+        "nothing written"
+    );
+}

@@ -908,7 +908,8 @@ fn control_characters_from_input_never_reach_a_csv_output_raw() {
     let t = demo(2);
     let act = t.dir.join("participants/SG-001/activity.csv");
     let mut text = std::fs::read_to_string(&act).unwrap();
-    text.push_str("2026-09-05,\u{1b}]0;pwned\u{7}walk\u{202e},10,3\n");
+    // (One field too many: a row that only leaves off trailing values is read.)
+    text.push_str("2026-09-05,\u{1b}]0;pwned\u{7}walk\u{202e},10,3,,x\n");
     std::fs::write(&act, text).unwrap();
     let o = t.run(&[
         "run",

@@ -285,3 +285,141 @@ fn the_ledger_never_writes_through_a_planted_link() {
     assert!(state.join("ledger.json").is_file());
     assert_eq!(std::fs::read(state.join("secret.key")).unwrap().len(), 32);
 }
+
+#[test]
+fn a_release_the_ledger_cannot_record_is_not_published() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    assert_eq!(run(AS_OF).code, 0);
+    let out = t.dir.join("reports");
+    let before = tree_hashes(&out);
+    let ledger = t.dir.join("reports.ledger/ledger.json");
+    let recorded = std::fs::read(&ledger).unwrap();
+    // The ledger cannot be saved (a folder where its temporary file goes: as a full disk or a
+    // read-only state folder would, also for root).
+    std::fs::create_dir_all(t.dir.join("reports.ledger/ledger.tmp/x")).unwrap();
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(o.stderr.contains("group-report ledger"), "{}", o.stderr);
+    // The new group report was put in place all the same, unrecorded: later audits never saw it.
+    assert_eq!(
+        tree_hashes(&out),
+        before,
+        "the previous output is left intact"
+    );
+    assert_eq!(std::fs::read(&ledger).unwrap(), recorded);
+    assert!(!t.dir.join(".reports.staging").exists());
+}
+
+#[test]
+fn a_ledger_that_lost_its_key_is_not_used_with_a_new_one() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    assert_eq!(run(AS_OF).code, 0);
+    let out = t.dir.join("reports");
+    let before = tree_hashes(&out);
+    // The key deleted (or not restored with the ledger): a new key was made, under which no
+    // earlier count linked to anyone, so the audit across releases passed what it would have
+    // hidden (on the sample program, 657 figures hidden with the key, 462 with a new one).
+    let key = t.dir.join("reports.ledger/secret.key");
+    std::fs::remove_file(&key).unwrap();
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("secret.key: missing, while ledger.json records 1 earlier release"),
+        "{}",
+        o.stderr
+    );
+    assert!(!key.exists(), "no new key is made");
+    assert_eq!(
+        tree_hashes(&out),
+        before,
+        "the previous output is left intact"
+    );
+}
+
+#[test]
+fn a_key_that_does_not_belong_to_the_ledger_is_refused() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    assert_eq!(run(AS_OF).code, 0);
+    let out = t.dir.join("reports");
+    let before = tree_hashes(&out);
+    // Another program's key, or one from another backup: as blind as a new key.
+    let key = t.dir.join("reports.ledger/secret.key");
+    let right = std::fs::read(&key).unwrap();
+    let other: Vec<u8> = right.iter().map(|b| b ^ 0x5a).collect();
+    std::fs::write(&key, &other).unwrap();
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("secret.key: not the key ledger.json was written with"),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(
+        tree_hashes(&out),
+        before,
+        "the previous output is left intact"
+    );
+    // The right key back: the run goes on.
+    std::fs::write(&key, &right).unwrap();
+    assert_eq!(run("2026-12-02").code, 0);
+}
+
+#[test]
+fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    let o = run(AS_OF);
+    assert_eq!(o.code, 0);
+    assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
+    // The ledger folder cleaned away as clutter: the next run audited against nothing, silently.
+    std::fs::remove_dir_all(t.dir.join("reports.ledger")).unwrap();
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr.contains("a new ledger, but")
+            && o.stderr.contains("holds a group report of an earlier run"),
+        "{}",
+        o.stderr
+    );
+}
+
+#[test]
+fn the_ledger_needs_a_folder_of_its_own() {
+    let t = ProgramTest::fixture("report-small");
+    // `--state` naming a folder of other things (the home folder, say): the ledger's files
+    // were created among them, and a `ledger.json` of someone else's was read as ours.
+    let home = t.dir.parent().unwrap().join("home");
+    std::fs::create_dir(&home).unwrap();
+    std::fs::write(home.join("notes.txt"), "mine\n").unwrap();
+    let home_s = home.to_string_lossy().into_owned();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--state",
+        &home_s,
+    ]);
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr.contains(
+            "holds `notes.txt` besides a ledger's files; the ledger needs a folder of its own"
+        ),
+        "{}",
+        o.stderr
+    );
+    let mut names: Vec<String> = std::fs::read_dir(&home)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert_eq!(names, ["notes.txt"], "nothing was added");
+    assert!(!t.dir.join("reports").exists(), "nothing was published");
+}

@@ -2,6 +2,7 @@
 //! `cohortpress` binary on fixture programs (see `harness.rs`).
 
 mod accessibility;
+mod careless;
 mod check;
 mod exports;
 mod external;

@@ -139,6 +139,15 @@ fn exit_codes_are_the_documented_ones() {
     );
     // Usage errors.
     assert_eq!(run(&t, &out(&t, "r"), &["--jobs", "0"]).code, 2);
+    // A typo of a thread count: it started threads until memory ran out, then aborted (134).
+    let many = run(&t, &out(&t, "r"), &["--jobs", "1000000"]);
+    assert_eq!(many.code, 2, "{}", many.stderr);
+    assert!(
+        many.stderr
+            .contains("--jobs must be at most 512 (one worker thread each), found 1000000"),
+        "{}",
+        many.stderr
+    );
     assert_eq!(run(&t, &out(&t, "r"), &["--period", "2031-01"]).code, 2);
     assert_eq!(run(&t, &out(&t, "r"), &["--shard", "4/3"]).code, 2);
     // An invalid program: nothing computed, nothing written.

@@ -341,6 +341,60 @@ fn intake_rows_of_a_day_are_summed() {
 }
 
 #[test]
+fn formatted_thousands_in_kcal_and_steps_are_thousands() {
+    // A German-locale spreadsheet: semicolons, decimal commas, `.` grouping thousands. The
+    // kcal column was read as 1.85 and 2.1 kcal a day (and flagged as intake below 800).
+    let (v, diags) = intake(
+        "date;kcal;protein_g\n2026-04-01;1.850;72,5\n2026-04-02;2.100,5;80\n2026-04-03;950;60\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kcal: Vec<f64> = v.iter().map(|i| i.kcal).collect();
+    assert_eq!(kcal, [1850.0, 2100.5, 950.0]);
+    assert_eq!(v[0].protein_g, Some(72.5));
+    // An English-locale export, tab-separated, with `,` grouping thousands; and steps.
+    let (v, diags) = intake("date\tkcal\n2026-04-01\t1,850\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].kcal, 1850.0);
+    let (a, diags) =
+        activity("date;activity;minutes;met;steps\n2026-04-01;walking_3mph;30,5;;12.500\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!((a[0].minutes, a[0].steps), (30.5, Some(12_500.0)));
+}
+
+#[test]
+fn an_energy_column_without_a_unit_holding_kilojoules_is_refused() {
+    let parse = |text: &str| {
+        let mut diags = Vec::new();
+        let v = parse_intake(
+            text,
+            &CsvOptions::default(),
+            &ctx("intake.csv"),
+            &window(),
+            &mut diags,
+        );
+        (v, diags)
+    };
+    // An app of a kilojoule country: 7,600–9,100 kJ a day were taken as kcal.
+    let kj = "date,Energy\n2026-04-01,8000\n2026-04-02,7600\n2026-04-03,9100\n";
+    let (v, d) = parse(kj);
+    assert!(v.is_none());
+    assert_eq!(d.len(), 1, "{d:#?}");
+    assert_eq!(d[0].severity, Severity::Error);
+    assert_eq!((d[0].line, d[0].column), (Some(1), Some(2)));
+    assert!(d[0].message.contains("median 8,000"), "{}", d[0]);
+    // The unit in the header settles it either way; kcal-sized totals are read as kcal.
+    let (v, d) = parse(&kj.replace("Energy", "Energy (kJ)"));
+    assert!(d.is_empty(), "{d:#?}");
+    assert_eq!(v.unwrap()[0].kcal, 8000.0 / 4.184);
+    let (v, d) = parse(&kj.replace("Energy", "kcal"));
+    assert!(d.is_empty(), "{d:#?}");
+    assert_eq!(v.unwrap()[0].kcal, 8000.0);
+    let (v, d) = parse("date,Energy\n2026-04-01,1800\n2026-04-02,2100\n2026-04-03,1900\n");
+    assert!(d.is_empty(), "{d:#?}");
+    assert_eq!(v.unwrap().len(), 3);
+}
+
+#[test]
 fn implausible_daily_intake_is_dropped_after_summing() {
     let (v, diags) = intake(
         "date,kcal\n2026-04-01,6000\n2026-04-01,4500\n2026-04-02,0\n2026-04-03,-5\n2026-04-04,1500\n",

@@ -1,0 +1,280 @@
+//! What a careless (not hostile) user does to a program and its outputs, through the real
+//! binary: keeps files of their own in the output folder, leaves two folders for one person
+//! whose names differ in case, saves a file as "Unicode text" (UTF-16), and breaks one file of
+//! one participant while another's profile is missing.
+
+use crate::harness::{ProgramTest, tree_hashes};
+use std::fs;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+const AS_OF: &str = "2026-12-01";
+const BIN: &str = env!("CARGO_BIN_EXE_cohortpress");
+
+/// A fresh generated demo program of `n` participants without planted defects.
+fn demo(n: usize) -> ProgramTest {
+    let scratch = tempfile::Builder::new()
+        .prefix("cohortpress-demo-")
+        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
+        .unwrap();
+    let dir = scratch.path().join("p");
+    let out = Command::new(BIN)
+        .args(["demo-program", dir.to_str().unwrap(), "--no-defects"])
+        .args(["--participants", &n.to_string()])
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    ProgramTest::from_dir(&dir)
+}
+
+fn out_dir(t: &ProgramTest) -> PathBuf {
+    t.dir.parent().unwrap().join("out")
+}
+
+fn run(t: &ProgramTest, formats: &str) -> crate::harness::Outcome {
+    let out = out_dir(t);
+    t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        formats,
+        "--out",
+        out.to_str().unwrap(),
+    ])
+}
+
+/// The group report's sentence about participant folders it leaves out.
+fn left_out_note(out: &Path) -> String {
+    let html = fs::read_to_string(out.join("group/program.html")).unwrap();
+    html.split(['<', '>'])
+        .filter(|s| s.contains("could not be used because of input errors"))
+        .collect::<Vec<_>>()
+        .join(" / ")
+}
+
+#[test]
+fn files_of_someone_elses_in_an_output_folder_are_never_deleted() {
+    let t = demo(3);
+    let out = out_dir(&t);
+    assert_eq!(run(&t, "html").code, 0);
+    // Last month's group report kept beside this month's, and a note: the next run replaced the
+    // folder as a whole and deleted both.
+    fs::create_dir_all(out.join("archive")).unwrap();
+    fs::write(out.join("archive/2026-10-program.html"), b"kept").unwrap();
+    fs::write(out.join("group/notes.txt"), b"mine").unwrap();
+    let before = tree_hashes(&out);
+    let o = run(&t, "html");
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("`archive/2026-10-program.html`, `group/notes.txt`"),
+        "{}",
+        o.stderr
+    );
+    assert!(o.stderr.contains("move them out"), "{}", o.stderr);
+    assert_eq!(tree_hashes(&out), before, "nothing was replaced");
+    // A link the run did not write counts as well (removing it loses what it points to's name).
+    fs::remove_dir_all(out.join("archive")).unwrap();
+    fs::remove_file(out.join("group/notes.txt")).unwrap();
+    #[cfg(unix)]
+    {
+        std::os::unix::fs::symlink(&t.dir, out.join("program-link")).unwrap();
+        let o = run(&t, "html");
+        assert_eq!(o.code, 2, "{o:?}");
+        assert!(o.stderr.contains("`program-link`"), "{}", o.stderr);
+        fs::remove_file(out.join("program-link")).unwrap();
+        // A name with a backslash is not the listed path it would spell on Windows.
+        fs::write(out.join("participants\\SG-001.html"), b"mine").unwrap();
+        let o = run(&t, "html");
+        assert_eq!(o.code, 2, "{o:?}");
+        fs::remove_file(out.join("participants\\SG-001.html")).unwrap();
+    }
+    // What a file manager leaves when someone looks at the reports, and an empty folder, are
+    // nobody's work: the run goes on.
+    fs::write(out.join(".DS_Store"), b"x").unwrap();
+    fs::write(out.join("participants/Thumbs.db"), b"x").unwrap();
+    fs::create_dir(out.join("empty")).unwrap();
+    let o = run(&t, "html");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(!out.join(".DS_Store").exists());
+    assert!(!out.join("empty").exists());
+}
+
+#[test]
+fn the_group_report_names_only_the_participants_it_leaves_out() {
+    let t = demo(5);
+    let out = out_dir(&t);
+    // Two participants' intake files have no usable header: those files are left out, the
+    // participants are reported and counted.
+    for id in ["SG-002", "SG-003"] {
+        let intake = t.dir.join(format!("participants/{id}/intake.csv"));
+        let text = fs::read_to_string(&intake).unwrap();
+        let rest = text.split_once('\n').unwrap().1;
+        fs::write(&intake, format!("day,energy_x\n{rest}")).unwrap();
+    }
+    // One profile missing and one folder whose name is not an id: both left out.
+    fs::remove_file(t.dir.join("participants/SG-004/profile.yaml")).unwrap();
+    fs::create_dir(t.dir.join("participants/SG 9")).unwrap();
+    let o = run(&t, "html");
+    assert_eq!(o.code, 4, "{o:?}");
+    assert!(out.join("participants/SG-002.html").exists());
+    assert!(out.join("participants/SG-003.html").exists());
+    assert!(!out.join("participants/SG-004.html").exists());
+    // It said "3 participant folders could not be used … and are not counted here".
+    assert_eq!(
+        left_out_note(&out),
+        "2 participant folders could not be used because of input errors and are not counted here; the run&#x27;s data-quality list (metrics/data-quality.csv) names the problems."
+    );
+}
+
+#[test]
+fn ids_that_differ_only_in_case_are_both_left_out() {
+    let t = demo(3);
+    let out = out_dir(&t);
+    // The same person exported twice, once with a lowercase id: on a case-insensitive output
+    // (a Windows or macOS share) both reports have one name, and the group counts them twice.
+    let copy = t.dir.join("participants/sg-002");
+    fs::create_dir(&copy).unwrap();
+    for e in fs::read_dir(t.dir.join("participants/SG-002")).unwrap() {
+        let e = e.unwrap();
+        fs::copy(e.path(), copy.join(e.file_name())).unwrap();
+    }
+    let profile = copy.join("profile.yaml");
+    let p = fs::read_to_string(&profile).unwrap();
+    fs::write(&profile, p.replace("id: SG-002", "id: sg-002")).unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check
+            .stdout
+            .contains("participant folders `SG-002`, `sg-002` differ only in upper and lower case"),
+        "{}",
+        check.stdout
+    );
+    let o = run(&t, "html");
+    assert_eq!(o.code, 4, "{o:?}");
+    let mut reports: Vec<String> = fs::read_dir(out.join("participants"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    reports.sort();
+    assert_eq!(reports, ["SG-001.html", "SG-003.html"]);
+}
+
+#[test]
+fn a_file_saved_as_unicode_text_is_read_like_utf8() {
+    let t = demo(2);
+    let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    let weigh_ins = |dir: &Path| -> (usize, usize) {
+        let r = cohortpress::check::check_program(dir, as_of);
+        let p = r.participants.iter().find(|p| p.id == "SG-001").unwrap();
+        let n = p.data.as_ref().unwrap().weights.len();
+        let errors = r
+            .participants
+            .iter()
+            .flat_map(|p| &p.diagnostics)
+            .filter(|d| d.severity == cohortpress::diag::Severity::Error)
+            .count();
+        (n, errors)
+    };
+    let (n, errors) = weigh_ins(&t.dir);
+    assert!(n > 20, "{n}");
+    assert_eq!(errors, 0);
+    // A spreadsheet's "Unicode text": UTF-16 little-endian with its byte-order mark, tabs and
+    // CRLF; and a big-endian profile.
+    let w = t.dir.join("participants/SG-001/weights.csv");
+    let text = fs::read_to_string(&w)
+        .unwrap()
+        .replace(',', "\t")
+        .replace('\n', "\r\n");
+    let le: Vec<u8> = [0xFF, 0xFE]
+        .into_iter()
+        .chain(text.encode_utf16().flat_map(u16::to_le_bytes))
+        .collect();
+    fs::write(&w, le).unwrap();
+    let pf = t.dir.join("participants/SG-001/profile.yaml");
+    let profile = fs::read_to_string(&pf).unwrap();
+    let be: Vec<u8> = [0xFE, 0xFF]
+        .into_iter()
+        .chain(profile.encode_utf16().flat_map(u16::to_be_bytes))
+        .collect();
+    fs::write(&pf, be).unwrap();
+    // It was refused ("it may be UTF-16 or binary"): every weigh-in and the participant lost.
+    assert_eq!(weigh_ins(&t.dir), (n, 0));
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert!(
+        check.stdout.contains("read as UTF-16 little-endian text"),
+        "{}",
+        check.stdout
+    );
+}
+
+#[test]
+fn input_files_named_in_other_case_are_read() {
+    let t = demo(2);
+    let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    let load = |dir: &Path| {
+        let r = cohortpress::check::check_program(dir, as_of);
+        r.participants
+            .into_iter()
+            .find(|p| p.id == "SG-001")
+            .unwrap()
+    };
+    let p = load(&t.dir);
+    let n = p.data.as_ref().unwrap().weights.len();
+    assert!(n > 20, "{n}");
+    // Saved by a system that capitalises names: the weigh-ins were ignored ("not an input file
+    // the tool reads"), and without profile.yaml the participant was left out.
+    let folder = t.dir.join("participants/SG-001");
+    fs::rename(folder.join("weights.csv"), folder.join("Weights.CSV")).unwrap();
+    fs::rename(folder.join("profile.yaml"), folder.join("PROFILE.YAML")).unwrap();
+    let p = load(&t.dir);
+    assert_eq!(p.data.as_ref().map(|d| d.weights.len()), Some(n));
+    assert!(p.diagnostics.is_empty(), "{:?}", p.diagnostics);
+    let notes: Vec<&str> = p.notes.iter().map(|n| n.message.as_str()).collect();
+    assert!(
+        notes.contains(&"`Weights.CSV` read as `weights.csv` (the name differs only in case)"),
+        "{notes:?}"
+    );
+    assert_eq!(p.files[0].path, "participants/SG-001/PROFILE.YAML");
+    // Two names for one input: neither is read, both are named.
+    fs::write(folder.join("WEIGHTS.csv"), "date,weight,unit\n").unwrap();
+    let p = load(&t.dir);
+    assert_eq!(p.data.as_ref().map(|d| d.weights.len()), Some(0));
+    let stray: Vec<&str> = p.diagnostics.iter().map(|d| d.file.as_str()).collect();
+    assert_eq!(
+        stray,
+        [
+            "participants/SG-001/WEIGHTS.csv",
+            "participants/SG-001/Weights.CSV"
+        ]
+    );
+}
+
+#[test]
+fn a_participant_named_like_a_windows_device_is_left_out() {
+    let t = demo(3);
+    let out = out_dir(&t);
+    // `Com1`: its report `Com1.html` cannot be created on a Windows share, which failed the
+    // whole run (exit 6) there.
+    let folder = t.dir.join("participants/Com1");
+    fs::rename(t.dir.join("participants/SG-003"), &folder).unwrap();
+    let profile = folder.join("profile.yaml");
+    let p = fs::read_to_string(&profile).unwrap();
+    fs::write(&profile, p.replace("id: SG-003", "id: Com1")).unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check
+            .stdout
+            .contains("participants/Com1: the folder name is a device name on Windows"),
+        "{}",
+        check.stdout
+    );
+    let o = run(&t, "html");
+    assert_eq!(o.code, 4, "{o:?}");
+    assert!(out.join("participants/SG-001.html").exists());
+    assert!(!out.join("participants/Com1.html").exists());
+}
