@@ -430,10 +430,11 @@ pub fn regain_confirmed(t: &TrendView) -> bool {
     t.regain_verdict == Some(RegainVerdict::Regaining)
 }
 
-/// The confirmed rise from the lowest trend weight in words, with its 95 % range:
-/// `about 5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg)`; `None` unless the
-/// level test confirms it.
-pub fn regain_words(t: &TrendView, units: UnitSystem) -> Option<String> {
+/// The confirmed rise from the lowest trend weight, kg, and its 95 % range in the program's
+/// units (` (95 % range 3.8 to 6.8 kg)`, empty without a finite range); `None` unless the level
+/// test confirms a rise above zero. The one reading the headline, the summary and the guidance
+/// print.
+pub fn regain_rise(t: &TrendView, units: UnitSystem) -> Option<(f64, String)> {
     if !regain_confirmed(t) {
         return None;
     }
@@ -446,9 +447,18 @@ pub fn regain_words(t: &TrendView, units: UnitSystem) -> Option<String> {
         }
         _ => String::new(),
     };
+    Some((rise, range))
+}
+
+/// The confirmed rise from the lowest trend weight in words, with its 95 % range:
+/// `about 5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg)`; `None` unless the
+/// level test confirms it.
+pub fn regain_words(t: &TrendView, units: UnitSystem) -> Option<String> {
+    let (rise, range) = regain_rise(t, units)?;
     Some(format!(
-        "about {} {unit} above its lowest point so far{range}",
-        one(rise)
+        "about {} {} above its lowest point so far{range}",
+        fmt::fixed(fmt::weight_value(rise, units), 1),
+        fmt::weight_unit(units)
     ))
 }
 

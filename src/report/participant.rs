@@ -302,18 +302,7 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
         ));
     }
     // A rise from the lowest trend weight, once the level test confirms it.
-    if let Some(t) = trend.filter(|t| guidance::regain_confirmed(t))
-        && let Some(rise) = t.regain_kg.value
-    {
-        let range = match (t.regain_kg.lower, t.regain_kg.upper) {
-            (Some(l), Some(u)) => format!(
-                " (95 % range {} to {} {})",
-                fmt::fixed(fmt::weight_value(l.max(0.0), units), 1),
-                fmt::fixed(fmt::weight_value(u, units), 1),
-                fmt::weight_unit(units)
-            ),
-            _ => String::new(),
-        };
+    if let Some((rise, range)) = trend.and_then(|t| guidance::regain_rise(t, units)) {
         summary.push(Kv::new(
             "Back up from your lowest",
             &format!("{}{range}", fmt::weight_change(rise, units)),
