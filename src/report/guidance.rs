@@ -108,7 +108,7 @@ impl Default for Thresholds {
         Thresholds {
             loss_bmi_at_least: 25.0,
             underweight_bmi_below: 18.5,
-            low_bmi_losing_below: 20.0,
+            low_bmi_losing_below: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW,
             floor_female: 1200.0,
             floor_male: 1500.0,
             max_loss_kg_per_week: 1.0,

@@ -99,6 +99,9 @@ pub const MIN_INTAKE_DAYS: usize = 4;
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
 /// Profile flag for a pregnancy.
 pub const PREGNANCY_FLAG: &str = "pregnant";
+/// Default of `low_bmi_losing_below`, kg/m²: below it a weight trend that is still falling
+/// raises `low_bmi` (BMI 18.5–20 scores a malnutrition risk: MUST, BAPEN 2003; from memory).
+pub const LOW_BMI_LOSING_BELOW: f64 = 20.0;
 
 /// Round-off allowance at cut points (see the crate docs).
 const CUT_EPS: f64 = 1e-9;
@@ -477,7 +480,7 @@ impl MetricModule for OutcomesModule {
                 ),
                 SettingSpec::number(
                     "low_bmi_losing_below",
-                    20.0,
+                    LOW_BMI_LOSING_BELOW,
                     "kg/m²",
                     18.5,
                     25.0,
@@ -1057,7 +1060,7 @@ fn push_low_bmi_flag(
         );
         return;
     }
-    let near = ctx.setting_f64("low_bmi_losing_below", 20.0);
+    let near = ctx.setting_f64("low_bmi_losing_below", LOW_BMI_LOSING_BELOW);
     if b < near && w.trend_falling {
         let rate = w
             .trend_rate
