@@ -311,16 +311,19 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
     if let Some(o) = outcomes
         && let Some(bmi) = o.bmi_current_kg_m2
     {
-        summary.push(Kv::new(
-            "BMI",
-            &format!(
-                "{} kg/m²{}",
-                fmt::fixed(bmi, 1),
-                bmi_range_words(o.bmi_category_current)
-            ),
-        ));
+        summary.push(Kv::new("BMI", &bmi_text(bmi, o.bmi_category_current)));
     }
     summary
+}
+
+/// The BMI row: the BMI to one decimal, cut rather than rounded so it stays inside the range its
+/// WHO class names (`cohortpress_metric_outcomes::bmi_one_decimal`), and that range in words.
+fn bmi_text(bmi: f64, category: Option<BmiCategory>) -> String {
+    format!(
+        "{} kg/m²{}",
+        fmt::fixed(cohortpress_metric_outcomes::bmi_one_decimal(bmi), 1),
+        bmi_range_words(category)
+    )
 }
 
 /// Milestones (3, 5, 7, 10 % loss) and when they were reached; when loss is not the goal
@@ -1025,6 +1028,23 @@ mod activity_unread_tests {
             .unwrap()
             .value
             .clone()
+    }
+
+    /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the
+    /// range 25 to 29.9". The number is cut to one decimal, so it stays in its class's range.
+    #[test]
+    fn the_bmi_shown_stays_inside_its_who_range() {
+        use cohortpress_metric_outcomes::who_bmi_class;
+        for (bmi, shown) in [
+            (29.97, "29.9 kg/m²; your BMI is in the range 25 to 29.9"),
+            (18.46, "18.4 kg/m²; your BMI is in the range below 18.5"),
+            (24.95, "24.9 kg/m²; your BMI is in the range 18.5 to 24.9"),
+            (25.0, "25.0 kg/m²; your BMI is in the range 25 to 29.9"),
+            (31.24, "31.2 kg/m²; your BMI is in the range 30 to 34.9"),
+        ] {
+            let text = bmi_text(bmi, Some(who_bmi_class(bmi)));
+            assert!(text.starts_with(shown), "{bmi}: {text}");
+        }
     }
 
     /// The lab table printed `5 %` beside `5.1 %` and `93.7 mg/dL` beside `31.1 mmol/mol`.

@@ -110,6 +110,14 @@ fn at_least(x: f64, cut: f64) -> bool {
     x >= cut - CUT_EPS
 }
 
+/// A BMI to one decimal as reports print it: cut, not rounded, so the number shown never
+/// crosses a WHO cut-off that its class ([`who_bmi_class`]) does not (29.97 is "pre-obese" and
+/// prints 29.9, not 30.0; 18.46 is underweight and prints 18.4, not 18.5). The WHO ranges are
+/// written to one decimal the same way ("25 to 29.9").
+pub fn bmi_one_decimal(bmi: f64) -> f64 {
+    ((bmi + CUT_EPS) * 10.0).floor() / 10.0
+}
+
 /// Weight outcomes, milestones, lab categories and clinician-review flags.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct OutcomesModule;
@@ -1053,9 +1061,10 @@ fn push_low_bmi_flag(
             OutcomesFlag::LowBmi.as_str(),
             FlagSeverity::Clinical,
             format!(
-                "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
+                "Current BMI is about {:.1} kg/m², below 18.5, the lower limit of the \
                      normal range (WHO). Further weight loss should be reviewed with a \
-                     licensed clinician."
+                     licensed clinician.",
+                bmi_one_decimal(b)
             ),
         );
         return;
@@ -1071,10 +1080,11 @@ fn push_low_bmi_flag(
             OutcomesFlag::LowBmi.as_str(),
             FlagSeverity::Clinical,
             format!(
-                "Current BMI is about {b:.1} kg/m², close to 18.5, the lower limit of the \
+                "Current BMI is about {:.1} kg/m², close to 18.5, the lower limit of the \
                  normal range (WHO), and the weight trend is still going down{rate}. Losing \
                  more at this weight is not advised without a licensed clinician: please \
-                 see one about the loss before going on."
+                 see one about the loss before going on.",
+                bmi_one_decimal(b)
             ),
         );
     }
@@ -1142,6 +1152,20 @@ mod tests {
 
     fn d(s: &str) -> NaiveDate {
         s.parse().unwrap()
+    }
+
+    /// 29.97 printed as "30.0" beside the class "25 to 29.9"; 18.46 as "about 18.5 kg/m², below
+    /// 18.5" in the low-BMI flag.
+    #[test]
+    fn bmi_shown_to_one_decimal_never_crosses_its_class() {
+        assert_eq!(bmi_one_decimal(29.97), 29.9);
+        assert_eq!(bmi_one_decimal(18.46), 18.4);
+        assert_eq!(bmi_one_decimal(22.3), 22.3);
+        assert_eq!(bmi_one_decimal(25.0 - 1e-12), 25.0);
+        for b in [18.46, 18.5, 24.99, 25.0, 29.97, 34.96, 39.99, 40.0] {
+            let shown = bmi_one_decimal(b);
+            assert_eq!(who_bmi_class(shown), who_bmi_class(b), "{b} shown {shown}");
+        }
     }
 
     #[test]
