@@ -190,7 +190,8 @@ pub fn build(
                 .unwrap_or(28.0)
                 .round()
                 .max(1.0) as u64;
-            let (view, chart) = energy_section(e, window_days);
+            let span = energy_window_words(window_days, p.enrolled, plan.period.to);
+            let (view, chart) = energy_section(e, &span);
             (Some(view), chart)
         }
         None => (None, None),
@@ -732,13 +733,43 @@ fn weight_chart(
     )
 }
 
+/// The days the energy module's window covers, in words: `last 4 weeks`, `last 30 days`, or,
+/// for someone enrolled fewer than `window_days` days before the period's end (the module's
+/// window starts at enrolment then), `11 days since you enrolled`.
+fn energy_window_words(window_days: u64, enrolled: NaiveDate, to: NaiveDate) -> String {
+    let from = to - chrono::Duration::days(window_days as i64 - 1);
+    if enrolled > from {
+        let days = (to - enrolled).num_days() + 1;
+        return format!("{} since you enrolled", day_count(days));
+    }
+    if window_days.is_multiple_of(7) {
+        let w = window_days / 7;
+        if w == 1 {
+            "last week".to_string()
+        } else {
+            format!("last {w} weeks")
+        }
+    } else {
+        format!("last {window_days} days")
+    }
+}
+
+/// `1 day`, `11 days`.
+fn day_count(days: i64) -> String {
+    if days == 1 {
+        "1 day".to_string()
+    } else {
+        format!("{days} days")
+    }
+}
+
 /// The energy section. Its total energy use and the weekly table's energy use are two
 /// estimates over different days: the total covers the energy module's last `window_days` and,
 /// when the weight trend gives an implied intake, is measured by energy balance (implied intake
 /// minus the energy stored); the weeks use the resting-energy equation × the person's activity
 /// level + that week's logged activity. Both say which they are, so a reader comparing the
 /// summary with the last weeks knows why they differ.
-fn energy_section(e: &EnergyResults, window_days: u64) -> (EnergyView, Option<Chart>) {
+fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
     let push = |items: &mut Vec<Kv>, label: &str, s: Interval| {
         if let Some(v) = s.value {
@@ -757,16 +788,6 @@ fn energy_section(e: &EnergyResults, window_days: u64) -> (EnergyView, Option<Ch
     );
     // By energy balance exactly when there is an implied intake (the energy module's rule).
     let by_balance = e.implied_intake_kcal_per_day.value.is_some();
-    let span = if window_days.is_multiple_of(7) {
-        let w = window_days / 7;
-        if w == 1 {
-            "last week".to_string()
-        } else {
-            format!("last {w} weeks")
-        }
-    } else {
-        format!("last {window_days} days")
-    };
     let tdee_label = if by_balance {
         format!("Total energy use per day ({span}, from your weight trend)")
     } else {
@@ -1169,7 +1190,7 @@ mod activity_unread_tests {
                 .label
                 .clone()
         };
-        let (v, chart) = energy_section(&e, 28);
+        let (v, chart) = energy_section(&e, "last 4 weeks");
         assert!(chart.is_some());
         assert_eq!(
             label(&v),
@@ -1181,16 +1202,49 @@ mod activity_unread_tests {
         );
         assert!(v.explanation.contains("so the two can differ"));
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
-        let (v, _) = energy_section(&e, 30);
+        let (v, _) = energy_section(&e, "last 30 days");
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
         // Without an implied intake the total is the equation's, over the period.
         e.implied_intake_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, 28);
+        let (v, _) = energy_section(&e, "last 4 weeks");
         assert_eq!(
             label(&v),
             "Total energy use per day (equation and activity, this period)"
         );
         assert!(!v.explanation.contains("can differ"));
+    }
+
+    /// Sample program, April 2026, SG-006 (enrolled 20 April): "Total energy use per day (last
+    /// 4 weeks, from your weight trend)" over 11 days of records. The module's window starts at
+    /// enrolment; the label now says so.
+    #[test]
+    fn the_energy_window_of_a_recent_joiner_is_named_from_enrolment() {
+        let d = |s: &str| s.parse::<NaiveDate>().unwrap();
+        assert_eq!(
+            energy_window_words(28, d("2026-04-20"), d("2026-04-30")),
+            "11 days since you enrolled"
+        );
+        assert_eq!(
+            energy_window_words(28, d("2026-04-30"), d("2026-04-30")),
+            "1 day since you enrolled"
+        );
+        // Enrolled on the window's first day or before: the whole window.
+        assert_eq!(
+            energy_window_words(28, d("2026-04-03"), d("2026-04-30")),
+            "last 4 weeks"
+        );
+        assert_eq!(
+            energy_window_words(28, d("2026-01-05"), d("2026-04-30")),
+            "last 4 weeks"
+        );
+        assert_eq!(
+            energy_window_words(30, d("2026-01-05"), d("2026-04-30")),
+            "last 30 days"
+        );
+        assert_eq!(
+            energy_window_words(7, d("2026-01-05"), d("2026-04-30")),
+            "last week"
+        );
     }
 
     #[test]
