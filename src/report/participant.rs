@@ -317,8 +317,8 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
     summary
 }
 
-/// The BMI row: the BMI to one decimal, cut rather than rounded so it stays inside the range its
-/// WHO class names (`cohortpress_metric_outcomes::bmi_one_decimal`), and that range in words.
+/// The BMI row: the BMI to one decimal, never rounded across the range its WHO class names
+/// (`cohortpress_metric_outcomes::bmi_one_decimal`), and that range in words.
 fn bmi_text(bmi: f64, category: Option<BmiCategory>) -> String {
     format!(
         "{} kg/m²{}",
@@ -1052,7 +1052,8 @@ mod activity_unread_tests {
     }
 
     /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the
-    /// range 25 to 29.9". The number is cut to one decimal, so it stays in its class's range.
+    /// range 25 to 29.9". The number is cut, not rounded, where rounding would leave its class's
+    /// range.
     #[test]
     fn the_bmi_shown_stays_inside_its_who_range() {
         use cohortpress_metric_outcomes::who_bmi_class;
@@ -1062,6 +1063,7 @@ mod activity_unread_tests {
             (24.95, "24.9 kg/m²; your BMI is in the range 18.5 to 24.9"),
             (25.0, "25.0 kg/m²; your BMI is in the range 25 to 29.9"),
             (31.24, "31.2 kg/m²; your BMI is in the range 30 to 34.9"),
+            (31.26, "31.3 kg/m²; your BMI is in the range 30 to 34.9"),
         ] {
             let text = bmi_text(bmi, Some(who_bmi_class(bmi)));
             assert!(text.starts_with(shown), "{bmi}: {text}");

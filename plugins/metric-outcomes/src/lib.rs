@@ -110,12 +110,17 @@ fn at_least(x: f64, cut: f64) -> bool {
     x >= cut - CUT_EPS
 }
 
-/// A BMI to one decimal as reports print it: cut, not rounded, so the number shown never
-/// crosses a WHO cut-off that its class ([`who_bmi_class`]) does not (29.97 is "pre-obese" and
-/// prints 29.9, not 30.0; 18.46 is underweight and prints 18.4, not 18.5). The WHO ranges are
-/// written to one decimal the same way ("25 to 29.9").
+/// A BMI to one decimal as reports print it: rounded, except where rounding would cross a WHO
+/// cut-off that its class ([`who_bmi_class`]) does not; it is then cut instead (29.97 is
+/// "pre-obese" and prints 29.9, not 30.0; 18.46 is underweight and prints 18.4, not 18.5; 18.69
+/// prints 18.7). The WHO ranges are written to one decimal the same way ("25 to 29.9").
 pub fn bmi_one_decimal(bmi: f64) -> f64 {
-    ((bmi + CUT_EPS) * 10.0).floor() / 10.0
+    let rounded = (bmi * 10.0).round() / 10.0;
+    if who_bmi_class(rounded) == who_bmi_class(bmi) {
+        rounded
+    } else {
+        ((bmi + CUT_EPS) * 10.0).floor() / 10.0
+    }
 }
 
 /// Weight outcomes, milestones, lab categories and clinician-review flags.
@@ -1161,6 +1166,9 @@ mod tests {
         assert_eq!(bmi_one_decimal(29.97), 29.9);
         assert_eq!(bmi_one_decimal(18.46), 18.4);
         assert_eq!(bmi_one_decimal(22.3), 22.3);
+        // Rounded as usual where no cut-off is crossed.
+        assert_eq!(bmi_one_decimal(18.69), 18.7);
+        assert_eq!(bmi_one_decimal(27.46), 27.5);
         assert_eq!(bmi_one_decimal(25.0 - 1e-12), 25.0);
         for b in [18.46, 18.5, 24.99, 25.0, 29.97, 34.96, 39.99, 40.0] {
             let shown = bmi_one_decimal(b);
