@@ -178,7 +178,7 @@ pub fn build(
         .and_then(|o| o.baseline_weight_kg)
         .filter(|_| !(no_loss && p.targets.weight_change_percent < 0.0))
         .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
-    let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan);
+    let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan, p.enrolled);
 
     let (energy_view, energy_chart) = match &v.energy {
         Some(e) => {
@@ -603,6 +603,7 @@ fn weight_chart(
     target_kg: Option<f64>,
     units: UnitSystem,
     plan: &Scope<'_>,
+    enrolled: NaiveDate,
 ) -> (Chart, ChartView) {
     let conv = |kg: f64| fmt::weight_value(kg, units);
     let unit = fmt::weight_unit(units);
@@ -699,20 +700,12 @@ fn weight_chart(
             y: conv(t),
         });
     }
-    let alt = format!(
-        "Weight chart for {} to {}: weigh-ins, the smoothed trend with its 95 % band{}{}.",
-        fmt::date(plan.program.info.start),
-        fmt::date(plan.period.to),
-        if spans.is_empty() {
-            ""
-        } else {
-            ", plateau and regain periods shaded"
-        },
-        if target_kg.is_some() {
-            ", and the target weight"
-        } else {
-            ""
-        }
+    let alt = weight_chart_alt(
+        plan.program.info.start,
+        enrolled,
+        plan.period.to,
+        !spans.is_empty(),
+        target_kg.is_some(),
     );
     let chart = Chart::Line(LineChart {
         title: "Weight".into(),
@@ -730,6 +723,32 @@ fn weight_chart(
             alt,
             table,
         },
+    )
+}
+
+/// The weight chart's description. It starts where the person's records do: the program's
+/// start, or their enrolment when they joined later (the chart's axis starts there too).
+fn weight_chart_alt(
+    start: NaiveDate,
+    enrolled: NaiveDate,
+    to: NaiveDate,
+    spans: bool,
+    target: bool,
+) -> String {
+    format!(
+        "Weight chart for {} to {}: weigh-ins, the smoothed trend with its 95 % band{}{}.",
+        fmt::date(start.max(enrolled)),
+        fmt::date(to),
+        if spans {
+            ", plateau and regain periods shaded"
+        } else {
+            ""
+        },
+        if target {
+            ", and the target weight"
+        } else {
+            ""
+        }
     )
 }
 
@@ -1247,6 +1266,23 @@ mod activity_unread_tests {
             energy_window_words(7, d("2026-01-05"), d("2026-04-30")),
             "last week"
         );
+    }
+
+    /// Sample program, April 2026, SG-006 (enrolled 20 April): "Weight chart for 1 Apr 2026 to
+    /// 30 Apr 2026" above an axis that starts on 20 April.
+    #[test]
+    fn the_weight_chart_of_a_late_joiner_is_described_from_enrolment() {
+        let d = |s: &str| s.parse::<NaiveDate>().unwrap();
+        let start = d("2026-04-01");
+        let alt =
+            |enrolled: &str| weight_chart_alt(start, d(enrolled), d("2026-04-30"), false, true);
+        assert_eq!(
+            alt("2026-04-20"),
+            "Weight chart for 20 Apr 2026 to 30 Apr 2026: weigh-ins, the smoothed trend with its 95 % band, and the target weight."
+        );
+        assert!(alt("2026-04-01").starts_with("Weight chart for 1 Apr 2026 to 30 Apr 2026:"));
+        // Enrolled before the program's start date: the program's start.
+        assert!(alt("2026-03-20").starts_with("Weight chart for 1 Apr 2026 "));
     }
 
     #[test]
