@@ -224,7 +224,15 @@ pub fn build(
             display_name: p.name.clone().unwrap_or_else(|| p.id.clone()),
             facts: person_facts(p, units),
         },
-        headline: headline(v.trend.as_ref(), v.outcomes.as_ref(), units, left),
+        headline: headline(
+            v.trend.as_ref(),
+            v.outcomes.as_ref(),
+            units,
+            left,
+            // Joined within the last four weeks of the period: the trend has had no four
+            // weeks to show.
+            Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
+        ),
         summary: summary(&v, units),
         milestones: milestones(v.outcomes.as_ref(), loss_goal),
         weight_chart: weight_view,
@@ -510,6 +518,7 @@ fn headline(
     outcomes: Option<&OutcomesView>,
     units: UnitSystem,
     left: Option<NaiveDate>,
+    joined_recently: Option<NaiveDate>,
 ) -> String {
     let status = trend.map_or(Status::InsufficientData, |t| t.status);
     let change = outcomes.and_then(|o| o.change_kg);
@@ -544,7 +553,14 @@ fn headline(
         Status::Unclear => format!(
             "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off."
         ),
-        Status::InsufficientData => "There are too few recent weigh-ins to see how your weight moved over the last four weeks.".to_string(),
+        Status::InsufficientData => match joined_recently {
+            // Not a shortfall of theirs: the weeks have not passed yet.
+            Some(e) => format!(
+                "You joined on {}, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it.",
+                fmt::date(e)
+            ),
+            None => "There are too few recent weigh-ins to see how your weight moved over the last four weeks.".to_string(),
+        },
     };
     // A rise from the lowest trend weight confirmed by level is named whatever the last four
     // weeks' slope says (a sparse weigher's regain is otherwise invisible here).
@@ -1108,12 +1124,12 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-1.32);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert_eq!(
             h,
             "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
         );
-        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None);
+        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None, None);
         assert!(h.contains("by about 2.91 lb/week"), "{h}");
     }
 
@@ -1132,7 +1148,7 @@ mod activity_unread_tests {
             lower: Some(3.82),
             upper: Some(6.75),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert_eq!(
             h,
             "There are too few recent weigh-ins to see how your weight moved over the last four \
@@ -1152,13 +1168,13 @@ mod activity_unread_tests {
         assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
         // Not confirmed by the level test: nothing is said of a rise.
         t.regain_verdict = Some(RegainVerdict::NotRegaining);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert!(!h.contains("lowest point"), "{h}");
         // A rising slope already says so; the level sentence is not repeated.
         t.regain_verdict = Some(RegainVerdict::Regaining);
         t.status = Status::Regaining;
         t.slope_kg_per_week.value = Some(0.3);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert!(!h.contains("lowest point"), "{h}");
     }
 
@@ -1283,6 +1299,25 @@ mod activity_unread_tests {
         assert!(alt("2026-04-01").starts_with("Weight chart for 1 Apr 2026 to 30 Apr 2026:"));
         // Enrolled before the program's start date: the program's start.
         assert!(alt("2026-03-20").starts_with("Weight chart for 1 Apr 2026 "));
+    }
+
+    /// Sample program, April 2026, SG-006 (enrolled 20 April, 7 weigh-ins in 11 days) read
+    /// "There are too few recent weigh-ins to see how your weight moved over the last four
+    /// weeks", a reproach for weeks that had not yet passed.
+    #[test]
+    fn a_recent_joiner_is_told_it_is_too_early_not_that_weigh_ins_are_too_few() {
+        let t = TrendView {
+            status: Status::InsufficientData,
+            ..TrendView::default()
+        };
+        let joined = "2026-04-20".parse::<NaiveDate>().unwrap();
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, Some(joined));
+        assert_eq!(
+            h,
+            "You joined on 20 Apr 2026, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it."
+        );
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        assert!(h.starts_with("There are too few recent weigh-ins"), "{h}");
     }
 
     #[test]
