@@ -115,11 +115,8 @@ pub fn parse_profile(
                 let col = text.lines().nth(l as usize - 1).and_then(|line| {
                     let (_, after) = line.split_once(':')?;
                     let value = after.trim_start();
-                    (!value.is_empty()).then(|| {
-                        (line.chars().count() - after.chars().count()
-                            + (after.chars().count() - value.chars().count())
-                            + 1) as u64
-                    })
+                    (!value.is_empty())
+                        .then(|| (line.chars().count() - value.chars().count() + 1) as u64)
                 });
                 d.at(l, col)
             }
@@ -557,8 +554,6 @@ flags: [glucose-lowering-medication]
     }
 }
 
-/// Hint for a height written without a unit: suggest the unit the number most plausibly has
-/// (a number over 100 is centimetres, 48–96 inches, a small one metres), never an absurd one.
 /// `text` (the value of `key`, described as `what`) without its invisible direction and control
 /// characters (`crate::text`), with a warning naming them when there were any: the reports
 /// would drop them anyway, and a name or site that reorders the text around it is worth a look.
@@ -590,6 +585,8 @@ fn invisible_checked(
     crate::text::neutralise(text).into_owned()
 }
 
+/// Hint for a height written without a unit: suggest the unit the number most plausibly has
+/// (a number over 100 is centimetres, 48–96 inches, a small one metres), never an absurd one.
 fn bare_height_hint(n: f64) -> String {
     if n >= 100.0 {
         format!("write e.g. `height: {n} cm`")

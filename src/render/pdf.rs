@@ -228,6 +228,22 @@ fn push_hrule(ops: &mut Vec<Op>, colour: Color, width: f32, x0: f32, x1: f32, y:
 
 /// Breaks `text` into lines no wider than `width` at `size`, at spaces; a word longer than a
 /// line is broken between characters. Explicit newlines are kept.
+/// The words of `para` as lines may break between them: a word that begins with `%` stays with
+/// the number before it (`95 %`, `5.1 %`, `−4.8 %`), so no line begins with a lone percent sign.
+fn words(para: &str) -> Vec<String> {
+    let mut out: Vec<String> = Vec::new();
+    for w in para.split_whitespace() {
+        match out.last_mut() {
+            Some(prev) if w.starts_with('%') => {
+                prev.push(' ');
+                prev.push_str(w);
+            }
+            _ => out.push(w.to_string()),
+        }
+    }
+    out
+}
+
 fn wrap(text: &str, face: Face, size: f32, width: f32) -> Vec<String> {
     let m = font::face(face);
     let space = m.char_width(' ', size);
@@ -235,7 +251,8 @@ fn wrap(text: &str, face: Face, size: f32, width: f32) -> Vec<String> {
     for para in text.split('\n') {
         let mut line = String::new();
         let mut line_w = 0.0f32;
-        for word in para.split_whitespace() {
+        for word in words(para) {
+            let word = word.as_str();
             let word_w = m.width(word, size);
             let needed = if line.is_empty() {
                 word_w
@@ -1746,6 +1763,21 @@ pub(crate) mod tests {
         // No characters lost except the spaces at line breaks.
         assert_eq!(lines.concat().replace(' ', ""), text.replace(' ', ""));
         assert_eq!(wrap("a\nb", Face::Regular, BODY, width), vec!["a", "b"]);
+        // A percent sign never starts a line ("the shaded band is its 95 / % range." on two
+        // lines, in the sample's weight-chart caption).
+        let text = "the smoothed trend with its band; the shaded band is its 95 % range of values.";
+        for width in (60..400).map(|w| w as f32) {
+            let lines = wrap(text, Face::Regular, BODY, width);
+            assert!(
+                lines.iter().all(|l| !l.starts_with('%')),
+                "{width}: {lines:?}"
+            );
+            assert_eq!(
+                lines.concat().replace(' ', ""),
+                text.replace(' ', ""),
+                "{width}"
+            );
+        }
         assert_eq!(wrap("", Face::Regular, BODY, width), vec![""]);
     }
 

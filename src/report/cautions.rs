@@ -9,11 +9,18 @@ pub fn participant(t: &super::guidance::Thresholds) -> Vec<String> {
             "Very low intakes (below about {} kcal a day for women or {} for men), losing or gaining more than about 1 kg (2 lb) a week for several weeks, a BMI under {} (or under {} while still losing), and lab values in the prediabetes or diabetes range should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy.",
             super::format::int(t.floor_female),
             super::format::int(t.floor_male),
-            super::format::fixed(t.underweight_bmi_below, 1),
-            super::format::fixed(t.low_bmi_losing_below, 0)
+            bmi(t.underweight_bmi_below),
+            bmi(t.low_bmi_losing_below)
         ),
         "Local rules and the advice of your own licensed clinician come first.".into(),
     ]
+}
+
+/// A BMI cut-off as a reader writes it: `20`, `18.5`, `19.5` (one decimal only when it has one;
+/// whole decimals would print a program's 19.5 as "20").
+fn bmi(v: f64) -> String {
+    let tenths = (v * 10.0).round();
+    super::format::fixed(tenths / 10.0, usize::from(tenths % 10.0 != 0.0))
 }
 
 /// Cautions on a group report.
@@ -28,4 +35,27 @@ pub fn group(min_cell: u32) -> Vec<String> {
         "Weight outcomes are given under intention-to-treat (everyone who started, with the starting weight carried forward for anyone without a recent weigh-in) and for completers only; completer figures alone overstate what a program achieves.".into(),
         "Individual clinical flags (very low intake, fast loss, low BMI, lab values in the diabetes range) are routed to participants' own reports and, where the program names a recipient, to a private follow-up list for the program's clinician; only their number appears here. Local rules and licensed practice come first.".into(),
     ]
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A program's `low_bmi_losing_below: 19.5` printed as "under 20 while still losing".
+    #[test]
+    fn bmi_cut_offs_keep_their_decimal() {
+        let mut t = super::super::guidance::Thresholds::default();
+        let text = participant(&t)[2].clone();
+        assert!(
+            text.contains("a BMI under 18.5 (or under 20 while still losing)"),
+            "{text}"
+        );
+        t.low_bmi_losing_below = 19.5;
+        t.underweight_bmi_below = 18.0;
+        let text = participant(&t)[2].clone();
+        assert!(
+            text.contains("a BMI under 18 (or under 19.5 while still losing)"),
+            "{text}"
+        );
+    }
 }

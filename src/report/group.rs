@@ -505,7 +505,7 @@ fn fill(
         .collect();
     if pts.iter().filter(|p| p.1.is_finite()).count() >= 2 {
         let name = format!("{anchor}-trajectory");
-        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band; weeks with too few participants are left out. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
+        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band; a week whose mean is not shown (too few participants, or a figure from which a small count could be worked out by subtraction) is a gap in the line. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
         let table = TableView {
             header: vec!["Week".into(), "n".into(), "Mean change (95 % CI)".into()],
             rows: st

@@ -108,7 +108,7 @@ impl Default for Thresholds {
         Thresholds {
             loss_bmi_at_least: 25.0,
             underweight_bmi_below: 18.5,
-            low_bmi_losing_below: 20.0,
+            low_bmi_losing_below: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW,
             floor_female: 1200.0,
             floor_male: 1500.0,
             max_loss_kg_per_week: 1.0,
@@ -430,10 +430,11 @@ pub fn regain_confirmed(t: &TrendView) -> bool {
     t.regain_verdict == Some(RegainVerdict::Regaining)
 }
 
-/// The confirmed rise from the lowest trend weight in words, with its 95 % range:
-/// `about 5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg)`; `None` unless the
-/// level test confirms it.
-pub fn regain_words(t: &TrendView, units: UnitSystem) -> Option<String> {
+/// The confirmed rise from the lowest trend weight, kg, and its 95 % range in the program's
+/// units (` (95 % range 3.8 to 6.8 kg)`, empty without a finite range); `None` unless the level
+/// test confirms a rise above zero. The one reading the headline, the summary and the guidance
+/// print.
+pub fn regain_rise(t: &TrendView, units: UnitSystem) -> Option<(f64, String)> {
     if !regain_confirmed(t) {
         return None;
     }
@@ -446,9 +447,18 @@ pub fn regain_words(t: &TrendView, units: UnitSystem) -> Option<String> {
         }
         _ => String::new(),
     };
+    Some((rise, range))
+}
+
+/// The confirmed rise from the lowest trend weight in words, with its 95 % range:
+/// `about 5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg)`; `None` unless the
+/// level test confirms it.
+pub fn regain_words(t: &TrendView, units: UnitSystem) -> Option<String> {
+    let (rise, range) = regain_rise(t, units)?;
     Some(format!(
-        "about {} {unit} above its lowest point so far{range}",
-        one(rise)
+        "about {} {} above its lowest point so far{range}",
+        fmt::fixed(fmt::weight_value(rise, units), 1),
+        fmt::weight_unit(units)
     ))
 }
 
@@ -545,6 +555,11 @@ fn pace(units: UnitSystem) -> &'static str {
 }
 
 fn rate_words(kg_per_week: f64, units: UnitSystem) -> String {
+    rate_words_to(kg_per_week, units, 1)
+}
+
+/// [`rate_words`] with `decimals` places.
+fn rate_words_to(kg_per_week: f64, units: UnitSystem, decimals: usize) -> String {
     let (v, u) = match units {
         UnitSystem::Metric => (kg_per_week, "kg"),
         UnitSystem::UsCustomary => (
@@ -552,7 +567,7 @@ fn rate_words(kg_per_week: f64, units: UnitSystem) -> String {
             "lb",
         ),
     };
-    format!("{} {u} a week", fmt::fixed(v.abs(), 1))
+    format!("{} {u} a week", fmt::fixed(v.abs(), decimals))
 }
 
 fn empty(phase: Phase, heading: &str, floor: f64) -> GuidanceView {
@@ -856,21 +871,34 @@ fn maintain(
 
 fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     let mut g = empty(Phase::KeepGoing, "What to try next", floor);
+    // The safe-pace limit, when the loss may be faster than it (the slope's careful end).
+    let too_fast = match (f.slope, f.weight_kg) {
+        (Some(s), Some(w)) if s.lower.unwrap_or(s.value) < -t.max_rate(w) => Some(t.max_rate(w)),
+        _ => None,
+    };
+    // The rate and the limit to the decimals that tell them apart: "about 0.8 kg a week" against
+    // "a limit of about 0.8 kg a week" read as the same pace.
+    let decimals = match (f.slope, too_fast) {
+        (Some(s), Some(max)) if rate_words(s.value, f.units) == rate_words(max, f.units) => 2,
+        _ => 1,
+    };
     let rate = f
         .slope
-        .map(|s| format!(", at about {}", rate_words(s.value, f.units)))
+        .map(|s| format!(", at about {}", rate_words_to(s.value, f.units, decimals)))
         .unwrap_or_default();
-    g.paragraphs.push(format!(
-        "Your weight is coming down{rate}. There is nothing you need to change: keep going with the habits that are working for you."
-    ));
-    if let (Some(s), Some(w)) = (f.slope, f.weight_kg) {
-        let max = t.max_rate(w);
-        if s.lower.unwrap_or(s.value) < -max {
+    match too_fast {
+        // A pace that may be too fast is not one to keep going at unchanged.
+        Some(max) => {
+            g.paragraphs
+                .push(format!("Your weight is coming down{rate}."));
             g.paragraphs.push(format!(
                 "The pace may be faster than the usual safe limit of about {}. If it stays this fast for a few more weeks, please talk to the program staff.",
-                rate_words(max, f.units)
+                rate_words_to(max, f.units, decimals)
             ));
         }
+        None => g.paragraphs.push(format!(
+            "Your weight is coming down{rate}. There is nothing you need to change: keep going with the habits that are working for you."
+        )),
     }
     g
 }
@@ -1353,6 +1381,41 @@ mod tests {
         let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
         assert!(g.options.is_empty());
         assert!(g.paragraphs[0].contains("too uncertain"));
+    }
+
+    /// Sample program, April 2026, SG-001 (75.8 kg, trend −0.84 kg/week, careful end past 1 %
+    /// of body weight): "There is nothing you need to change" stood above "The pace may be faster
+    /// than the usual safe limit of about 0.8 kg a week", after "coming down, at about 0.8 kg a
+    /// week".
+    #[test]
+    fn a_pace_that_may_be_too_fast_is_not_told_to_keep_going_unchanged() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.weight_kg = Some(75.8);
+        f.slope = Some(Est {
+            value: -0.84,
+            lower: Some(-1.02),
+            upper: Some(-0.66),
+        });
+        let g = keep_going(&t, &f, 1200.0);
+        assert_eq!(
+            g.paragraphs,
+            vec![
+                "Your weight is coming down, at about 0.84 kg a week.".to_string(),
+                "The pace may be faster than the usual safe limit of about 0.76 kg a week. If it stays this fast for a few more weeks, please talk to the program staff.".to_string(),
+            ]
+        );
+        // Well inside the limit: the encouragement stays, to one decimal.
+        f.slope = Some(Est {
+            value: -0.5,
+            lower: Some(-0.6),
+            upper: Some(-0.4),
+        });
+        let g = keep_going(&t, &f, 1200.0);
+        assert_eq!(
+            g.paragraphs,
+            vec!["Your weight is coming down, at about 0.5 kg a week. There is nothing you need to change: keep going with the habits that are working for you.".to_string()]
+        );
     }
 
     #[test]

@@ -242,21 +242,24 @@ pub fn render_participant(
         charts.insert("activity".into(), c.clone());
     }
     let svgs = svg_map(&charts);
-    let html = templates.render("participant.html", &report.ctx, svgs.clone())?;
     let c = &report.ctx;
     // A name the PDF's font cannot show (most CJK, Thai …) would print as empty boxes, or
     // nothing a reader can copy: the PDF names the participant by their id instead (no
     // transliteration: a guessed spelling of someone's name is worse than none). The HTML,
     // which the reader's own fonts show, keeps the name; the run log says so
-    // (`pdf_name_fallback`).
-    let pdf_html = match pdf_name_fallback(report) {
-        Some(_) if formats.contains(&Format::Pdf) => {
-            let mut ctx = report.ctx.clone();
-            ctx.participant.display_name = format!("Participant {}", c.participant.id);
-            templates.render("participant.html", &ctx, svgs)?
-        }
-        _ => html.clone(),
+    // (`pdf_name_fallback`). Only then is the page rendered twice (and the charts' SVG map
+    // copied); otherwise the PDF is laid out from the HTML page itself.
+    let name_fallback = formats.contains(&Format::Pdf) && pdf_name_fallback(report).is_some();
+    let (html, pdf_html) = if name_fallback {
+        let html = templates.render("participant.html", c, svgs.clone())?;
+        let mut ctx = c.clone();
+        ctx.participant.display_name = format!("Participant {}", c.participant.id);
+        let pdf_html = templates.render("participant.html", &ctx, svgs)?;
+        (html, Some(pdf_html))
+    } else {
+        (templates.render("participant.html", c, svgs)?, None)
     };
+    let pdf_html = pdf_html.as_deref().unwrap_or(&html);
     let mut out = Vec::new();
     for f in formats {
         match f {
@@ -264,7 +267,7 @@ pub fn render_participant(
             Format::Pdf => out.push((
                 "pdf",
                 from_html::pdf(
-                    &pdf_html,
+                    pdf_html,
                     &templates.source_of("participant.html"),
                     &charts,
                     from_html::Frame {

@@ -178,7 +178,7 @@ pub fn build(
         .and_then(|o| o.baseline_weight_kg)
         .filter(|_| !(no_loss && p.targets.weight_change_percent < 0.0))
         .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
-    let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan);
+    let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan, p.enrolled);
 
     let (energy_view, energy_chart) = match &v.energy {
         Some(e) => {
@@ -190,7 +190,8 @@ pub fn build(
                 .unwrap_or(28.0)
                 .round()
                 .max(1.0) as u64;
-            let (view, chart) = energy_section(e, window_days);
+            let span = energy_window_words(window_days, p.enrolled, plan.period.to);
+            let (view, chart) = energy_section(e, &span);
             (Some(view), chart)
         }
         None => (None, None),
@@ -223,7 +224,15 @@ pub fn build(
             display_name: p.name.clone().unwrap_or_else(|| p.id.clone()),
             facts: person_facts(p, units),
         },
-        headline: headline(v.trend.as_ref(), v.outcomes.as_ref(), units, left),
+        headline: headline(
+            v.trend.as_ref(),
+            v.outcomes.as_ref(),
+            units,
+            left,
+            // Joined within the last four weeks of the period: the trend has had no four
+            // weeks to show.
+            Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
+        ),
         summary: summary(&v, units),
         milestones: milestones(v.outcomes.as_ref(), loss_goal),
         weight_chart: weight_view,
@@ -302,18 +311,7 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
         ));
     }
     // A rise from the lowest trend weight, once the level test confirms it.
-    if let Some(t) = trend.filter(|t| guidance::regain_confirmed(t))
-        && let Some(rise) = t.regain_kg.value
-    {
-        let range = match (t.regain_kg.lower, t.regain_kg.upper) {
-            (Some(l), Some(u)) => format!(
-                " (95 % range {} to {} {})",
-                fmt::fixed(fmt::weight_value(l.max(0.0), units), 1),
-                fmt::fixed(fmt::weight_value(u, units), 1),
-                fmt::weight_unit(units)
-            ),
-            _ => String::new(),
-        };
+    if let Some((rise, range)) = trend.and_then(|t| guidance::regain_rise(t, units)) {
         summary.push(Kv::new(
             "Back up from your lowest",
             &format!("{}{range}", fmt::weight_change(rise, units)),
@@ -322,16 +320,19 @@ fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
     if let Some(o) = outcomes
         && let Some(bmi) = o.bmi_current_kg_m2
     {
-        summary.push(Kv::new(
-            "BMI",
-            &format!(
-                "{} kg/m²{}",
-                fmt::fixed(bmi, 1),
-                bmi_range_words(o.bmi_category_current)
-            ),
-        ));
+        summary.push(Kv::new("BMI", &bmi_text(bmi, o.bmi_category_current)));
     }
     summary
+}
+
+/// The BMI row: the BMI to one decimal, never rounded across the range its WHO class names
+/// (`cohortpress_metric_outcomes::bmi_one_decimal`), and that range in words.
+fn bmi_text(bmi: f64, category: Option<BmiCategory>) -> String {
+    format!(
+        "{} kg/m²{}",
+        fmt::fixed(cohortpress_metric_outcomes::bmi_one_decimal(bmi), 1),
+        bmi_range_words(category)
+    )
 }
 
 /// Milestones (3, 5, 7, 10 % loss) and when they were reached; when loss is not the goal
@@ -517,6 +518,7 @@ fn headline(
     outcomes: Option<&OutcomesView>,
     units: UnitSystem,
     left: Option<NaiveDate>,
+    joined_recently: Option<NaiveDate>,
 ) -> String {
     let status = trend.map_or(Status::InsufficientData, |t| t.status);
     let change = outcomes.and_then(|o| o.change_kg);
@@ -551,7 +553,14 @@ fn headline(
         Status::Unclear => format!(
             "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off."
         ),
-        Status::InsufficientData => "There are too few recent weigh-ins to see how your weight moved over the last four weeks.".to_string(),
+        Status::InsufficientData => match joined_recently {
+            // Not a shortfall of theirs: the weeks have not passed yet.
+            Some(e) => format!(
+                "You joined on {}, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it.",
+                fmt::date(e)
+            ),
+            None => "There are too few recent weigh-ins to see how your weight moved over the last four weeks.".to_string(),
+        },
     };
     // A rise from the lowest trend weight confirmed by level is named whatever the last four
     // weeks' slope says (a sparse weigher's regain is otherwise invisible here).
@@ -610,6 +619,7 @@ fn weight_chart(
     target_kg: Option<f64>,
     units: UnitSystem,
     plan: &Scope<'_>,
+    enrolled: NaiveDate,
 ) -> (Chart, ChartView) {
     let conv = |kg: f64| fmt::weight_value(kg, units);
     let unit = fmt::weight_unit(units);
@@ -706,20 +716,12 @@ fn weight_chart(
             y: conv(t),
         });
     }
-    let alt = format!(
-        "Weight chart for {} to {}: weigh-ins, the smoothed trend with its 95 % band{}{}.",
-        fmt::date(plan.program.info.start),
-        fmt::date(plan.period.to),
-        if spans.is_empty() {
-            ""
-        } else {
-            ", plateau and regain periods shaded"
-        },
-        if target_kg.is_some() {
-            ", and the target weight"
-        } else {
-            ""
-        }
+    let alt = weight_chart_alt(
+        plan.program.info.start,
+        enrolled,
+        plan.period.to,
+        !spans.is_empty(),
+        target_kg.is_some(),
     );
     let chart = Chart::Line(LineChart {
         title: "Weight".into(),
@@ -740,13 +742,69 @@ fn weight_chart(
     )
 }
 
+/// The weight chart's description. It starts where the person's records do: the program's
+/// start, or their enrolment when they joined later (the chart's axis starts there too).
+fn weight_chart_alt(
+    start: NaiveDate,
+    enrolled: NaiveDate,
+    to: NaiveDate,
+    spans: bool,
+    target: bool,
+) -> String {
+    format!(
+        "Weight chart for {} to {}: weigh-ins, the smoothed trend with its 95 % band{}{}.",
+        fmt::date(start.max(enrolled)),
+        fmt::date(to),
+        if spans {
+            ", plateau and regain periods shaded"
+        } else {
+            ""
+        },
+        if target {
+            ", and the target weight"
+        } else {
+            ""
+        }
+    )
+}
+
+/// The days the energy module's window covers, in words: `last 4 weeks`, `last 30 days`, or,
+/// for someone enrolled fewer than `window_days` days before the period's end (the module's
+/// window starts at enrolment then), `11 days since you enrolled`.
+fn energy_window_words(window_days: u64, enrolled: NaiveDate, to: NaiveDate) -> String {
+    let from = to - chrono::Duration::days(window_days as i64 - 1);
+    if enrolled > from {
+        let days = (to - enrolled).num_days() + 1;
+        return format!("{} since you enrolled", day_count(days));
+    }
+    if window_days.is_multiple_of(7) {
+        let w = window_days / 7;
+        if w == 1 {
+            "last week".to_string()
+        } else {
+            format!("last {w} weeks")
+        }
+    } else {
+        format!("last {window_days} days")
+    }
+}
+
+/// `1 day`, `11 days`.
+fn day_count(days: i64) -> String {
+    if days == 1 {
+        "1 day".to_string()
+    } else {
+        format!("{days} days")
+    }
+}
+
 /// The energy section. Its total energy use and the weekly table's energy use are two
 /// estimates over different days: the total covers the energy module's last `window_days` and,
 /// when the weight trend gives an implied intake, is measured by energy balance (implied intake
 /// minus the energy stored); the weeks use the resting-energy equation × the person's activity
 /// level + that week's logged activity. Both say which they are, so a reader comparing the
 /// summary with the last weeks knows why they differ.
-fn energy_section(e: &EnergyResults, window_days: u64) -> (EnergyView, Option<Chart>) {
+fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
     let push = |items: &mut Vec<Kv>, label: &str, s: Interval| {
         if let Some(v) = s.value {
@@ -765,16 +823,6 @@ fn energy_section(e: &EnergyResults, window_days: u64) -> (EnergyView, Option<Ch
     );
     // By energy balance exactly when there is an implied intake (the energy module's rule).
     let by_balance = e.implied_intake_kcal_per_day.value.is_some();
-    let span = if window_days.is_multiple_of(7) {
-        let w = window_days / 7;
-        if w == 1 {
-            "last week".to_string()
-        } else {
-            format!("last {w} weeks")
-        }
-    } else {
-        format!("last {window_days} days")
-    };
     let tdee_label = if by_balance {
         format!("Total energy use per day ({span}, from your weight trend)")
     } else {
@@ -1038,6 +1086,25 @@ mod activity_unread_tests {
             .clone()
     }
 
+    /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the
+    /// range 25 to 29.9". The number is cut, not rounded, where rounding would leave its class's
+    /// range.
+    #[test]
+    fn the_bmi_shown_stays_inside_its_who_range() {
+        use cohortpress_metric_outcomes::who_bmi_class;
+        for (bmi, shown) in [
+            (29.97, "29.9 kg/m²; your BMI is in the range 25 to 29.9"),
+            (18.46, "18.4 kg/m²; your BMI is in the range below 18.5"),
+            (24.95, "24.9 kg/m²; your BMI is in the range 18.5 to 24.9"),
+            (25.0, "25.0 kg/m²; your BMI is in the range 25 to 29.9"),
+            (31.24, "31.2 kg/m²; your BMI is in the range 30 to 34.9"),
+            (31.26, "31.3 kg/m²; your BMI is in the range 30 to 34.9"),
+        ] {
+            let text = bmi_text(bmi, Some(who_bmi_class(bmi)));
+            assert!(text.starts_with(shown), "{bmi}: {text}");
+        }
+    }
+
     /// The lab table printed `5 %` beside `5.1 %` and `93.7 mg/dL` beside `31.1 mmol/mol`.
     #[test]
     fn lab_values_keep_their_units_usual_decimals() {
@@ -1057,12 +1124,12 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-1.32);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert_eq!(
             h,
             "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
         );
-        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None);
+        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None, None);
         assert!(h.contains("by about 2.91 lb/week"), "{h}");
     }
 
@@ -1081,7 +1148,7 @@ mod activity_unread_tests {
             lower: Some(3.82),
             upper: Some(6.75),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert_eq!(
             h,
             "There are too few recent weigh-ins to see how your weight moved over the last four \
@@ -1101,13 +1168,13 @@ mod activity_unread_tests {
         assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
         // Not confirmed by the level test: nothing is said of a rise.
         t.regain_verdict = Some(RegainVerdict::NotRegaining);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert!(!h.contains("lowest point"), "{h}");
         // A rising slope already says so; the level sentence is not repeated.
         t.regain_verdict = Some(RegainVerdict::Regaining);
         t.status = Status::Regaining;
         t.slope_kg_per_week.value = Some(0.3);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert!(!h.contains("lowest point"), "{h}");
     }
 
@@ -1160,7 +1227,7 @@ mod activity_unread_tests {
                 .label
                 .clone()
         };
-        let (v, chart) = energy_section(&e, 28);
+        let (v, chart) = energy_section(&e, "last 4 weeks");
         assert!(chart.is_some());
         assert_eq!(
             label(&v),
@@ -1172,16 +1239,85 @@ mod activity_unread_tests {
         );
         assert!(v.explanation.contains("so the two can differ"));
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
-        let (v, _) = energy_section(&e, 30);
+        let (v, _) = energy_section(&e, "last 30 days");
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
         // Without an implied intake the total is the equation's, over the period.
         e.implied_intake_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, 28);
+        let (v, _) = energy_section(&e, "last 4 weeks");
         assert_eq!(
             label(&v),
             "Total energy use per day (equation and activity, this period)"
         );
         assert!(!v.explanation.contains("can differ"));
+    }
+
+    /// Sample program, April 2026, SG-006 (enrolled 20 April): "Total energy use per day (last
+    /// 4 weeks, from your weight trend)" over 11 days of records. The module's window starts at
+    /// enrolment; the label now says so.
+    #[test]
+    fn the_energy_window_of_a_recent_joiner_is_named_from_enrolment() {
+        let d = |s: &str| s.parse::<NaiveDate>().unwrap();
+        assert_eq!(
+            energy_window_words(28, d("2026-04-20"), d("2026-04-30")),
+            "11 days since you enrolled"
+        );
+        assert_eq!(
+            energy_window_words(28, d("2026-04-30"), d("2026-04-30")),
+            "1 day since you enrolled"
+        );
+        // Enrolled on the window's first day or before: the whole window.
+        assert_eq!(
+            energy_window_words(28, d("2026-04-03"), d("2026-04-30")),
+            "last 4 weeks"
+        );
+        assert_eq!(
+            energy_window_words(28, d("2026-01-05"), d("2026-04-30")),
+            "last 4 weeks"
+        );
+        assert_eq!(
+            energy_window_words(30, d("2026-01-05"), d("2026-04-30")),
+            "last 30 days"
+        );
+        assert_eq!(
+            energy_window_words(7, d("2026-01-05"), d("2026-04-30")),
+            "last week"
+        );
+    }
+
+    /// Sample program, April 2026, SG-006 (enrolled 20 April): "Weight chart for 1 Apr 2026 to
+    /// 30 Apr 2026" above an axis that starts on 20 April.
+    #[test]
+    fn the_weight_chart_of_a_late_joiner_is_described_from_enrolment() {
+        let d = |s: &str| s.parse::<NaiveDate>().unwrap();
+        let start = d("2026-04-01");
+        let alt =
+            |enrolled: &str| weight_chart_alt(start, d(enrolled), d("2026-04-30"), false, true);
+        assert_eq!(
+            alt("2026-04-20"),
+            "Weight chart for 20 Apr 2026 to 30 Apr 2026: weigh-ins, the smoothed trend with its 95 % band, and the target weight."
+        );
+        assert!(alt("2026-04-01").starts_with("Weight chart for 1 Apr 2026 to 30 Apr 2026:"));
+        // Enrolled before the program's start date: the program's start.
+        assert!(alt("2026-03-20").starts_with("Weight chart for 1 Apr 2026 "));
+    }
+
+    /// Sample program, April 2026, SG-006 (enrolled 20 April, 7 weigh-ins in 11 days) read
+    /// "There are too few recent weigh-ins to see how your weight moved over the last four
+    /// weeks", a reproach for weeks that had not yet passed.
+    #[test]
+    fn a_recent_joiner_is_told_it_is_too_early_not_that_weigh_ins_are_too_few() {
+        let t = TrendView {
+            status: Status::InsufficientData,
+            ..TrendView::default()
+        };
+        let joined = "2026-04-20".parse::<NaiveDate>().unwrap();
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, Some(joined));
+        assert_eq!(
+            h,
+            "You joined on 20 Apr 2026, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it."
+        );
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        assert!(h.starts_with("There are too few recent weigh-ins"), "{h}");
     }
 
     #[test]

@@ -539,33 +539,21 @@ fn process_participant(
             .collect();
         let ctx =
             report::participant_context(&plan.report_scope(), &data, &results, &loaded.diagnostics);
-        if plan.formats.contains(&crate::program::Format::Pdf)
-            && let Some(missing) = report::pdf_name_fallback(&ctx)
-        {
-            tracing::warn!(
-                "{}: participants/{}/profile.yaml: the PDF's font has no glyph for {} in the participant's name; the PDF names the participant by id instead (the HTML keeps the name)",
-                data.profile.id,
-                dir.id,
-                missing
-                    .iter()
-                    .take(8)
-                    .map(|c| format!("`{c}` U+{:04X}", *c as u32))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            );
-        }
         if plan.formats.contains(&crate::program::Format::Pdf) {
+            if let Some(missing) = report::pdf_name_fallback(&ctx) {
+                tracing::warn!(
+                    "{}: participants/{}/profile.yaml: the PDF's font has no glyph for {} in the participant's name; the PDF names the participant by id instead (the HTML keeps the name)",
+                    data.profile.id,
+                    dir.id,
+                    glyph_list(&missing)
+                );
+            }
             let missing = report::pdf_unshowable_text(&ctx);
             if !missing.is_empty() {
                 tracing::warn!(
                     "{}: the PDF's font has no glyph for {} in the report's text (a site, team, activity or other name from the inputs); they show as empty boxes in the PDF (the HTML shows them)",
                     data.profile.id,
-                    missing
-                        .iter()
-                        .take(8)
-                        .map(|c| format!("`{c}` U+{:04X}", *c as u32))
-                        .collect::<Vec<_>>()
-                        .join(", ")
+                    glyph_list(&missing)
                 );
             }
         }
@@ -708,4 +696,15 @@ fn write_tidy(
         staging.write("metrics/group.json", &tidy::group_json(group)?)?;
     }
     Ok(())
+}
+
+/// Characters the PDF's font cannot show, for a run-log warning: the first eight as
+/// `` `王` U+738B ``, comma-separated.
+fn glyph_list(missing: &[char]) -> String {
+    missing
+        .iter()
+        .take(8)
+        .map(|c| format!("`{c}` U+{:04X}", *c as u32))
+        .collect::<Vec<_>>()
+        .join(", ")
 }

@@ -99,12 +99,28 @@ pub const MIN_INTAKE_DAYS: usize = 4;
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
 /// Profile flag for a pregnancy.
 pub const PREGNANCY_FLAG: &str = "pregnant";
+/// Default of `low_bmi_losing_below`, kg/m²: below it a weight trend that is still falling
+/// raises `low_bmi` (BMI 18.5–20 scores a malnutrition risk: MUST, BAPEN 2003; from memory).
+pub const LOW_BMI_LOSING_BELOW: f64 = 20.0;
 
 /// Round-off allowance at cut points (see the crate docs).
 const CUT_EPS: f64 = 1e-9;
 
 fn at_least(x: f64, cut: f64) -> bool {
     x >= cut - CUT_EPS
+}
+
+/// A BMI to one decimal as reports print it: rounded, except where rounding would cross a WHO
+/// cut-off that its class ([`who_bmi_class`]) does not; it is then cut instead (29.97 is
+/// "pre-obese" and prints 29.9, not 30.0; 18.46 is underweight and prints 18.4, not 18.5; 18.69
+/// prints 18.7). The WHO ranges are written to one decimal the same way ("25 to 29.9").
+pub fn bmi_one_decimal(bmi: f64) -> f64 {
+    let rounded = (bmi * 10.0).round() / 10.0;
+    if who_bmi_class(rounded) == who_bmi_class(bmi) {
+        rounded
+    } else {
+        ((bmi + CUT_EPS) * 10.0).floor() / 10.0
+    }
 }
 
 /// Weight outcomes, milestones, lab categories and clinician-review flags.
@@ -477,7 +493,7 @@ impl MetricModule for OutcomesModule {
                 ),
                 SettingSpec::number(
                     "low_bmi_losing_below",
-                    20.0,
+                    LOW_BMI_LOSING_BELOW,
                     "kg/m²",
                     18.5,
                     25.0,
@@ -1050,14 +1066,15 @@ fn push_low_bmi_flag(
             OutcomesFlag::LowBmi.as_str(),
             FlagSeverity::Clinical,
             format!(
-                "Current BMI is about {b:.1} kg/m², below 18.5, the lower limit of the \
+                "Current BMI is about {:.1} kg/m², below 18.5, the lower limit of the \
                      normal range (WHO). Further weight loss should be reviewed with a \
-                     licensed clinician."
+                     licensed clinician.",
+                bmi_one_decimal(b)
             ),
         );
         return;
     }
-    let near = ctx.setting_f64("low_bmi_losing_below", 20.0);
+    let near = ctx.setting_f64("low_bmi_losing_below", LOW_BMI_LOSING_BELOW);
     if b < near && w.trend_falling {
         let rate = w
             .trend_rate
@@ -1068,10 +1085,11 @@ fn push_low_bmi_flag(
             OutcomesFlag::LowBmi.as_str(),
             FlagSeverity::Clinical,
             format!(
-                "Current BMI is about {b:.1} kg/m², close to 18.5, the lower limit of the \
+                "Current BMI is about {:.1} kg/m², close to 18.5, the lower limit of the \
                  normal range (WHO), and the weight trend is still going down{rate}. Losing \
                  more at this weight is not advised without a licensed clinician: please \
-                 see one about the loss before going on."
+                 see one about the loss before going on.",
+                bmi_one_decimal(b)
             ),
         );
     }
@@ -1139,6 +1157,23 @@ mod tests {
 
     fn d(s: &str) -> NaiveDate {
         s.parse().unwrap()
+    }
+
+    /// 29.97 printed as "30.0" beside the class "25 to 29.9"; 18.46 as "about 18.5 kg/m², below
+    /// 18.5" in the low-BMI flag.
+    #[test]
+    fn bmi_shown_to_one_decimal_never_crosses_its_class() {
+        assert_eq!(bmi_one_decimal(29.97), 29.9);
+        assert_eq!(bmi_one_decimal(18.46), 18.4);
+        assert_eq!(bmi_one_decimal(22.3), 22.3);
+        // Rounded as usual where no cut-off is crossed.
+        assert_eq!(bmi_one_decimal(18.69), 18.7);
+        assert_eq!(bmi_one_decimal(27.46), 27.5);
+        assert_eq!(bmi_one_decimal(25.0 - 1e-12), 25.0);
+        for b in [18.46, 18.5, 24.99, 25.0, 29.97, 34.96, 39.99, 40.0] {
+            let shown = bmi_one_decimal(b);
+            assert_eq!(who_bmi_class(shown), who_bmi_class(b), "{b} shown {shown}");
+        }
     }
 
     #[test]
