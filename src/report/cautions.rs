@@ -28,7 +28,7 @@ pub fn group(min_cell: u32) -> Vec<String> {
     vec![
         "This is a de-identified summary for program evaluation. It contains no names or participant ids, and it is not medical advice.".into(),
         format!(
-            "Counts from 1 to {} are not shown exactly (the report gives the range its other figures already imply, or says “not shown (small numbers)”; a chart with such a count is not drawn), and other cells are hidden too where a hidden count could otherwise be worked out by subtraction; groups with fewer than {} participants are withheld or combined.",
+            "Counts from 1 to {} are not shown exactly (the report gives the range its other figures already imply, or says “not shown (privacy)”; a chart with such a count is not drawn), and other cells are hidden too where a hidden count could otherwise be worked out by subtraction; groups with fewer than {} participants are withheld or combined.",
             min_cell.saturating_sub(1),
             min_cell
         ),

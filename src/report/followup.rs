@@ -65,17 +65,19 @@ pub struct FollowupRecord {
     pub items: Vec<FollowupItem>,
 }
 
-/// The reason a flag is on the list, in plain words.
+/// The reason a flag is on the list, in plain words. It names no threshold: a program sets its
+/// own (`max_loss_kg_per_week`, `low_bmi_losing_below`, …), and the item's `details` — the
+/// module's own message — gives the figures that applied.
 pub fn reason(code: &str) -> &'static str {
     match code {
         "fast_loss" => {
-            "Weight coming down faster than about 1 kg (2 lb) a week for three weeks or more"
+            "Weight coming down faster than the program's safe-loss limit for weeks on end"
         }
-        "very_low_intake" => "Logged intake very low (below about 800 kcal a day on average)",
+        "very_low_intake" => {
+            "Logged intake very low (below the program's very-low-intake threshold on average)"
+        }
         "low_intake" => "Logged intake below the usual floor for eating less without supervision",
-        "low_bmi" => {
-            "BMI below 18.5 (WHO underweight range), or below 20 while weight is still coming down"
-        }
+        "low_bmi" => "BMI in the underweight range, or near it while weight is still coming down",
         "lab_diabetes_range" => {
             "Latest glucose or HbA1c in the diabetes range (ADA Standards of Care)"
         }
@@ -83,7 +85,7 @@ pub fn reason(code: &str) -> &'static str {
             "Takes a glucose-lowering medicine while losing fast or eating little: the dose may need review"
         }
         "fast_gain" => {
-            "Weight going up faster than about 1 kg (2 lb) a week for three weeks or more (fluid, or a change of scale?)"
+            "Weight going up faster than the program's limit for weeks on end (fluid, or a change of scale?)"
         }
         "pregnancy" => "Pregnancy noted in the profile: the report makes no suggestions for change",
         _ => "Raised for review by a licensed clinician",
@@ -421,6 +423,23 @@ pub fn render(
 
 #[cfg(test)]
 mod tests {
+    /// The reason column printed the default thresholds ("below 20", "about 1 kg (2 lb) a
+    /// week", "about 800 kcal"), wrong for a program that sets its own; it names none now.
+    #[test]
+    fn reasons_name_no_threshold_a_program_can_change() {
+        for code in [
+            "fast_loss",
+            "very_low_intake",
+            "low_intake",
+            "low_bmi",
+            "fast_gain",
+            "medication_review",
+        ] {
+            let r = super::reason(code);
+            assert!(!r.chars().any(|c| c.is_ascii_digit()), "{code}: {r}");
+        }
+    }
+
     use super::*;
 
     fn d(s: &str) -> NaiveDate {

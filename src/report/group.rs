@@ -1,6 +1,6 @@
 //! The group report model: the de-identified statistics of [`crate::group`] turned into display
 //! tables and charts. A hidden count prints as the range the rest of the report already implies
-//! ("1–10", "at least 79 %"), or as "not shown (small numbers)" with the reason in the
+//! ("1–10", "at least 79 %"), or as "not shown (privacy)" with the reason in the
 //! section's notes; figures that cannot be computed print as "–". No names, no ids.
 
 use super::Scope;
@@ -82,7 +82,9 @@ pub struct GroupReportModel {
 }
 
 /// What a hidden figure without a range prints: short, with the reason in the section notes.
-const HIDDEN: &str = "not shown (small numbers)";
+/// "Privacy" rather than "small numbers": a figure over many people is also hidden where it
+/// would let a small count be worked out by subtraction.
+const HIDDEN: &str = "not shown (privacy)";
 
 fn count(s: &Shown<u64>) -> String {
     match s {

@@ -469,8 +469,6 @@ struct Facts {
     withdrew: Option<NaiveDate>,
     weight_kg: Option<f64>,
     slope: Option<Est>,
-    /// The confirmed rise from the lowest trend weight, in words ([`regain_words`]).
-    regain: Option<String>,
     implied: Option<Est>,
     /// Mean logged intake over the period, kcal/d (the energy module's, when enough days
     /// were logged).
@@ -501,7 +499,6 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .and_then(|t| t.current_weight_kg.value)
             .or_else(|| v.outcomes.as_ref().and_then(|o| o.current_weight_kg.value)),
         slope: trend.and_then(|t| est(t.slope_kg_per_week)),
-        regain: trend.and_then(|t| regain_words(t, plan.program.info.units)),
         // The interval of the implied intake; where the module also gives its lower bound as
         // a scalar of its own, the lower (more harmful) of the two is used.
         implied: energy
@@ -681,9 +678,11 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         .unwrap_or_default();
     // Row 3 is reached by a rising slope, or by a rise from the lowest point confirmed by level
     // while the last four weeks cannot say whether it goes on.
-    let opening = match (&f.regain, state.status) {
-        (Some(words), s) if s != TrendStatus::Regaining => format!(
-            "Your trend weight is now {words}. {} This happens to most people at some point; the first step is to steady it where it is now.",
+    // The rise itself, with its range, stands in the headline and the summary above; the
+    // section does not print it a third time.
+    let opening = match state.status {
+        s if state.regained && s != TrendStatus::Regaining => format!(
+            "Your weight has come back up from its lowest point, as shown above. {} This happens to most people at some point; the first step is to steady it where it is now.",
             if s == TrendStatus::Insufficient {
                 "There are too few recent weigh-ins to tell whether it is still rising."
             } else {
@@ -1251,7 +1250,6 @@ mod tests {
                 lower: Some(-0.15),
                 upper: Some(0.15),
             }),
-            regain: None,
             implied: Some(Est {
                 value: 2000.0,
                 lower: Some(1850.0),
@@ -1422,8 +1420,6 @@ mod tests {
     fn a_rise_confirmed_by_level_is_named_without_claiming_a_recent_slope() {
         let t = Thresholds::default();
         let mut f = facts();
-        f.regain =
-            Some("about 5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg)".into());
         f.balance = Some(Est {
             value: 460.0,
             lower: Some(200.0),
@@ -1434,7 +1430,10 @@ mod tests {
         let g = compose(decide(&s, &t), &s, &t, &f);
         assert_eq!(g.phase, "regain");
         let text = g.paragraphs.join(" ");
-        assert!(text.contains("5.3 kg above its lowest point"), "{text}");
+        assert!(
+            text.contains("come back up from its lowest point"),
+            "{text}"
+        );
         assert!(text.contains("too few recent weigh-ins"), "{text}");
         assert!(!text.contains("over the last four weeks"), "{text}");
         // The amount that holds the weight is still checked at the lower bound.
