@@ -474,7 +474,8 @@ struct Facts {
     /// were logged).
     logged: Option<f64>,
     balance: Option<Est>,
-    tdee: Option<f64>,
+    /// Total energy use with its 95 % interval.
+    tdee: Option<Est>,
     intake_need: Option<f64>,
     walk_need: Option<f64>,
     weigh_ins_target: f64,
@@ -513,7 +514,7 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .and_then(|e| e.logged_intake_kcal_per_day.value)
             .filter(|x| x.is_finite()),
         balance: energy.and_then(|e| est(e.energy_balance_kcal_per_day)),
-        tdee: energy.and_then(|e| e.tdee_kcal_per_day.value),
+        tdee: energy.and_then(|e| est(e.tdee_kcal_per_day)),
         intake_need: option_change(options, OptionKind::Intake).map(|x| -x),
         walk_need: option_change(options, OptionKind::Walking),
         weigh_ins_target: data.profile.targets.weigh_ins_per_week,
@@ -771,7 +772,8 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
 }
 
 fn maintain_sentence(f: &Facts, floor: f64, losing: bool, t: &Thresholds) -> Option<String> {
-    let hold = fmt::round_to(f.tdee?, KCAL_STEP);
+    let tdee = f.tdee?;
+    let hold = fmt::round_to(tdee.value, KCAL_STEP);
     if hold < floor {
         return Some(format!(
             "Your energy needs are estimated at about {} a day, close to {} a day, the lowest intake usually advised without a clinician; please talk to the program staff before eating less.",
@@ -779,8 +781,18 @@ fn maintain_sentence(f: &Facts, floor: f64, losing: bool, t: &Thresholds) -> Opt
             fmt::kcal(floor)
         ));
     }
+    // The figure is an estimate: its range goes beside it, so nobody takes it for a
+    // measurement, and the weigh-ins are named as the guide.
+    let range = match (tdee.lower, tdee.upper) {
+        (Some(l), Some(u)) if u > l => format!(
+            " (likely between {} and {}, so let your weekly weigh-ins guide you)",
+            fmt::int(fmt::floor_to(l, KCAL_STEP)),
+            fmt::kcal(fmt::ceil_to(u, KCAL_STEP))
+        ),
+        _ => String::new(),
+    };
     let mut s = format!(
-        "By the energy-balance model, about {} a day holds your current weight with your present activity.",
+        "By the energy-balance model, about {} a day holds your current weight with your present activity{range}.",
         fmt::kcal(hold)
     );
     if losing
@@ -1261,7 +1273,11 @@ mod tests {
                 upper: Some(150.0),
             }),
             logged: None,
-            tdee: Some(2010.0),
+            tdee: Some(Est {
+                value: 2010.0,
+                lower: None,
+                upper: None,
+            }),
             intake_need: Some(560.0),
             walk_need: Some(95.0),
             weigh_ins_target: 3.0,
@@ -1519,6 +1535,19 @@ mod tests {
         assert!(all.contains("hold their weight"), "{all}");
         assert!(
             !all.contains("new weight") && !all.contains("lower weight"),
+            "{all}"
+        );
+        // The holding figure is an estimate: its range stands beside it (outward to 50 kcal).
+        f.tdee = Some(Est {
+            value: 2010.0,
+            lower: Some(1630.0),
+            upper: Some(2390.0),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("about 2,000 kcal a day holds your current weight with your present activity (likely between 1,600 and 2,400 kcal, so let your weekly weigh-ins guide you)."),
             "{all}"
         );
     }

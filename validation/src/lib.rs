@@ -13,7 +13,7 @@ pub mod truth;
 
 use chrono::{Days, NaiveDate};
 use cohortpress_metric_api::units::{Length, Mass};
-use cohortpress_metric_api::view::ModuleView;
+use cohortpress_metric_api::view::{Interval, ModuleView};
 use cohortpress_metric_api::{
     ActivityEntry, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData, Period,
     Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
@@ -239,8 +239,8 @@ pub struct Outcome {
     pub intake: Option<(f64, f64, f64, f64)>,
     /// Under-reporting, %: (truth, estimate).
     pub underreport: Option<(f64, f64)>,
-    /// Total expenditure, last 28 days: (truth, estimate).
-    pub tdee: Option<(f64, f64)>,
+    /// Total expenditure, last 28 days: (truth, estimate, lower, upper).
+    pub tdee: Option<(f64, f64, f64, f64)>,
     /// Trend weight at the last weigh-in: (truth, estimate).
     pub trend_weight: Option<(f64, f64)>,
     /// True plateau onset (observable ones only) and the estimated onset.
@@ -289,11 +289,14 @@ pub fn run_person_with(seed: u64, index: usize, days: usize, oracle: Oracle) -> 
         })
         .filter(|_| logged.is_some() && intake.is_some())
         .map(|e| (100.0 * p.underreport, e));
-    let tdee = energy
-        .tdee_kcal_per_day
-        .value
-        .filter(|_| observed_to_end)
-        .map(|e| (mean(&p.tee[end - 27..=end]), e));
+    let tdee = match energy.tdee_kcal_per_day {
+        Interval {
+            value: Some(e),
+            lower: Some(l),
+            upper: Some(u),
+        } if observed_to_end => Some((mean(&p.tee[end - 27..=end]), e, l, u)),
+        _ => None,
+    };
     let trend_weight = match (trend.current_weight_kg.value, last_obs) {
         (Some(e), Some(d)) => Some((p.bw[d], e)),
         _ => None,
@@ -498,6 +501,8 @@ pub struct Summary {
     pub forecast_coverage: Figure,
     /// Median absolute error of total expenditure, kcal/d.
     pub tdee_mae: Figure,
+    /// Share of total-expenditure 95 % intervals that contain the truth.
+    pub tdee_coverage: Figure,
     /// Median absolute error of the trend weight at the last weigh-in, kg.
     pub trend_mae: Figure,
     /// Median error of the trend weight, kg.
@@ -561,8 +566,12 @@ impl Summary {
             ),
             tdee_mae: med(o()
                 .filter_map(|x| x.tdee)
-                .map(|(t, e)| (e - t).abs())
+                .map(|(t, e, _, _)| (e - t).abs())
                 .collect()),
+            tdee_coverage: prop(
+                o().filter_map(|x| x.tdee)
+                    .map(|(t, _, l, u)| l <= t && t <= u),
+            ),
             trend_mae: med(o()
                 .filter_map(|x| x.trend_weight)
                 .map(|(t, e)| (e - t).abs())
@@ -710,6 +719,13 @@ pub fn rows() -> Vec<Row> {
             pick: |s| s.tdee_mae,
             met: Some(|v| v <= 150.0),
             percent: false,
+        },
+        Row {
+            label: "total expenditure: 95 % interval contains the truth",
+            goal: "—",
+            pick: |s| s.tdee_coverage,
+            met: None,
+            percent: true,
         },
         Row {
             label: "trend weight at the last weigh-in: median absolute error, kg",

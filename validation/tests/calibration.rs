@@ -19,7 +19,7 @@ fn check(seed: u64) {
             .unwrap_or_else(|| panic!("seed {seed}, {what}: nobody was scored (n = {})", f.n))
     };
     let report = format!("seed {seed}\n{s:#?}");
-    let floors: [(&str, f64, bool, Figure); 12] = [
+    let floors: [(&str, f64, bool, Figure); 13] = [
         (
             "implied-intake interval coverage",
             0.90,
@@ -44,6 +44,9 @@ fn check(seed: u64) {
         ("plateau cause decided wrongly", 0.10, false, s.cause_wrong),
         ("under-reporting MAE, points", 7.0, false, s.underreport_mae),
         ("expenditure MAE, kcal/d", 200.0, false, s.tdee_mae),
+        // Measured 94.1 % (seed 20261202) and 95.7 % (seed 7) with the baseline requirement's
+        // uncertainty in it.
+        ("expenditure interval coverage", 0.90, true, s.tdee_coverage),
         ("trend weight MAE, kg", 0.4, false, s.trend_mae),
         ("trend weight bias, kg", 0.25, false, s.trend_bias),
     ];

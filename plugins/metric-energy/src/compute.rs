@@ -440,6 +440,17 @@ impl Person<'_> {
             + (EPS_REL_SD * self.lin.epsilon * (bw - self.model.bw0)).powi(2)
     }
 
+    /// Variance of the total expenditure read off the energy balance, TDEE = implied intake −
+    /// e_d·slope, from the slope and the model parameters (not from the baseline requirement),
+    /// kcal²/d²: ((ρ − e_d)·SD_slope)² + (SD_ρ·slope)² + (SD_ε·ΔBW)². The slope enters the
+    /// implied intake through ρ and leaves it through the energy density e_d of the change, so
+    /// most of its uncertainty cancels (the energy density shares ρ's relative SD).
+    fn tdee_change_var(&self, bw: f64, slope: f64, slope_sd: f64, ed: f64) -> f64 {
+        ((self.lin.rho - ed) * slope_sd).powi(2)
+            + (RHO_REL_SD * (self.lin.rho - ed) * slope).powi(2)
+            + (EPS_REL_SD * self.lin.epsilon * (bw - self.model.bw0)).powi(2)
+    }
+
     /// Implied intake at weight `bw`, slope `slope` (kg/d) and net activity `met_hours`
     /// (kcal/kg/d): EI₀ + ε·ΔBW + ρ·slope + A/(1 − β).
     fn implied_intake(&self, bw: f64, slope: f64, met_hours: f64) -> f64 {
@@ -689,6 +700,8 @@ struct Current {
     /// withheld).
     unexplained: Option<Unexplained>,
     tdee: f64,
+    /// SD of `tdee`, kcal/d (the baseline requirement and [`Person::tdee_change_var`]).
+    tdee_sd: f64,
     underreport: Option<Band>,
     /// SD of the current energy balance without the baseline requirement (it cancels in
     /// forecasts), kcal/d.
@@ -785,13 +798,21 @@ fn current_state(
     // Expenditure: by energy balance when the intake is implied (intake minus the energy
     // stored, ρ_stored·dBW/dt with the energy density of the tissue change; Hall 2008 Int J
     // Obes 32:573, from memory), else resting × the person's PAL + logged activity.
-    let tdee = match (implied, slope) {
+    let (tdee, tdee_sd) = match (implied, slope) {
         (Some(i), Some(sl)) => {
             let ed =
                 crate::dynamics::energy_density_of_weight_change(p.model.fat_for_weight(bw_window));
-            i.value - ed * sl.value
+            (
+                i.value - ed * sl.value,
+                (baseline.var + p.tdee_change_var(bw_window, sl.value, band_sd(&sl), ed)).sqrt(),
+            )
         }
-        _ => rmr * p.model.pal + activity,
+        // Resting × PAL: the baseline requirement's uncertainty (activity level and resting
+        // energy) scaled to today's resting energy.
+        _ => (
+            rmr * p.model.pal + activity,
+            baseline.var.sqrt() * rmr * p.model.pal / p.model.ei0.max(1.0),
+        ),
     };
     // Under-reporting: the person's own share from every block of logs and trend (the joint
     // posterior); without such blocks, the share missing from the window's logs.
@@ -826,6 +847,7 @@ fn current_state(
         logged_days,
         implied,
         tdee,
+        tdee_sd,
         underreport,
         balance_sd,
     }
@@ -846,9 +868,13 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
         "kcal/d",
         "Logged activity, net of resting ((MET − 1) × kg × h), added to the resting-based total",
     );
-    out.push_scalar(
+    // The 95 % interval, kept at or above resting energy: the total includes it.
+    let h = Z_95 * cur.tdee_sd;
+    out.push_interval(
         names::TDEE_KCAL_PER_DAY,
         Some(cur.tdee),
+        Some((cur.tdee - h).max(cur.rmr.min(cur.tdee))),
+        Some(cur.tdee + h),
         "kcal/d",
         if implied.is_some() {
             "Total expenditure: implied intake minus the energy stored or released by the weight change"

@@ -225,6 +225,13 @@ fn compute_recovers_the_known_intake_and_continues_the_trajectory() {
         + crate::dynamics::ETA_L * dl;
     let tdee = out.scalar("tdee_kcal_per_day").unwrap();
     assert!((tdee - tee_true).abs() < 40.0, "tdee {tdee} vs {tee_true}");
+    // Its 95 % interval holds the truth, carries the unknown activity level (the baseline
+    // requirement's SD, over 100 kcal/d here: wider than ±200) and stays above resting energy.
+    let t = out.scalar_full("tdee_kcal_per_day").unwrap();
+    let (lo, hi) = (t.lower.unwrap(), t.upper.unwrap());
+    let rmr = out.scalar("rmr_kcal_per_day").unwrap();
+    assert!(lo <= tee_true && tee_true <= hi, "{lo}–{hi} vs {tee_true}");
+    assert!(hi - lo > 400.0 && lo >= rmr, "{lo}–{hi}, resting {rmr}");
     let act = out.scalar("activity_net_kcal_per_day").unwrap();
     assert!(act == 0.0 && act.is_sign_positive(), "{act}");
 
