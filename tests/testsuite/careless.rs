@@ -6,26 +6,8 @@
 use crate::harness::{ProgramTest, tree_hashes};
 use std::fs;
 use std::path::{Path, PathBuf};
-use std::process::Command;
 
 const AS_OF: &str = "2026-12-01";
-const BIN: &str = env!("CARGO_BIN_EXE_cohortpress");
-
-/// A fresh generated demo program of `n` participants without planted defects.
-fn demo(n: usize) -> ProgramTest {
-    let scratch = tempfile::Builder::new()
-        .prefix("cohortpress-demo-")
-        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
-        .unwrap();
-    let dir = scratch.path().join("p");
-    let out = Command::new(BIN)
-        .args(["demo-program", dir.to_str().unwrap(), "--no-defects"])
-        .args(["--participants", &n.to_string()])
-        .output()
-        .unwrap();
-    assert!(out.status.success(), "{out:?}");
-    ProgramTest::from_dir(&dir)
-}
 
 fn out_dir(t: &ProgramTest) -> PathBuf {
     t.dir.parent().unwrap().join("out")
@@ -56,7 +38,7 @@ fn left_out_note(out: &Path) -> String {
 
 #[test]
 fn files_of_someone_elses_in_an_output_folder_are_never_deleted() {
-    let t = demo(3);
+    let t = ProgramTest::demo(3);
     let out = out_dir(&t);
     assert_eq!(run(&t, "html").code, 0);
     // Last month's group report kept beside this month's, and a note: the next run replaced the
@@ -104,7 +86,7 @@ fn files_of_someone_elses_in_an_output_folder_are_never_deleted() {
 
 #[test]
 fn the_group_report_names_only_the_participants_it_leaves_out() {
-    let t = demo(5);
+    let t = ProgramTest::demo(5);
     let out = out_dir(&t);
     // Two participants' intake files have no usable header: those files are left out, the
     // participants are reported and counted.
@@ -131,7 +113,7 @@ fn the_group_report_names_only_the_participants_it_leaves_out() {
 
 #[test]
 fn ids_that_differ_only_in_case_are_both_left_out() {
-    let t = demo(3);
+    let t = ProgramTest::demo(3);
     let out = out_dir(&t);
     // The same person exported twice, once with a lowercase id: on a case-insensitive output
     // (a Windows or macOS share) both reports have one name, and the group counts them twice.
@@ -165,7 +147,7 @@ fn ids_that_differ_only_in_case_are_both_left_out() {
 
 #[test]
 fn a_file_saved_as_unicode_text_is_read_like_utf8() {
-    let t = demo(2);
+    let t = ProgramTest::demo(2);
     let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
     let weigh_ins = |dir: &Path| -> (usize, usize) {
         let r = cohortpress::check::check_program(dir, as_of);
@@ -213,7 +195,7 @@ fn a_file_saved_as_unicode_text_is_read_like_utf8() {
 
 #[test]
 fn input_files_named_in_other_case_are_read() {
-    let t = demo(2);
+    let t = ProgramTest::demo(2);
     let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
     let load = |dir: &Path| {
         let r = cohortpress::check::check_program(dir, as_of);
@@ -255,7 +237,7 @@ fn input_files_named_in_other_case_are_read() {
 
 #[test]
 fn a_participant_named_like_a_windows_device_is_left_out() {
-    let t = demo(3);
+    let t = ProgramTest::demo(3);
     let out = out_dir(&t);
     // `Com1`: its report `Com1.html` cannot be created on a Windows share, which failed the
     // whole run (exit 6) there.

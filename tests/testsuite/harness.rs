@@ -57,6 +57,23 @@ impl ProgramTest {
         Self::from_dir(&repo_root().join("sample-program"))
     }
 
+    /// A fresh generated demo program of `n` participants (seed 2026) without planted defects,
+    /// made by the real binary's `demo-program`.
+    pub fn demo(n: usize) -> Self {
+        let scratch = tempfile::Builder::new()
+            .prefix("cohortpress-demo-")
+            .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
+            .expect("temp dir");
+        let dir = scratch.path().join("p");
+        let out = Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+            .args(["demo-program", &dir.to_string_lossy(), "--no-defects"])
+            .args(["--participants", &n.to_string()])
+            .output()
+            .expect("run cohortpress demo-program");
+        assert!(out.status.success(), "{out:?}");
+        Self::from_dir(&dir)
+    }
+
     /// Runs `cohortpress ARGS…` with the program folder as working directory. `{dir}` in an
     /// argument is replaced by the program folder.
     pub fn run(&self, args: &[&str]) -> Outcome {

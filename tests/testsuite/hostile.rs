@@ -10,22 +10,6 @@ use std::process::Command;
 const AS_OF: &str = "2026-12-01";
 const BIN: &str = env!("CARGO_BIN_EXE_cohortpress");
 
-/// A fresh generated demo program of `n` participants without planted defects.
-fn demo(n: usize) -> ProgramTest {
-    let scratch = tempfile::Builder::new()
-        .prefix("cohortpress-demo-")
-        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
-        .unwrap();
-    let dir = scratch.path().join("p");
-    let out = Command::new(BIN)
-        .args(["demo-program", dir.to_str().unwrap(), "--no-defects"])
-        .args(["--participants", &n.to_string()])
-        .output()
-        .unwrap();
-    assert!(out.status.success(), "{out:?}");
-    ProgramTest::from_dir(&dir)
-}
-
 fn out(t: &ProgramTest) -> String {
     t.dir
         .parent()
@@ -54,7 +38,7 @@ fn set_profile_line(t: &ProgramTest, id: &str, key: &str, line: &str) {
 
 #[test]
 fn names_cannot_inject_html_and_ids_cannot_escape_the_output_folder() {
-    let t = demo(4);
+    let t = ProgramTest::demo(4);
     set_profile_line(&t, "SG-001", "name", "name: \"<script>alert(1)</script>\"");
     // A profile whose id tries to climb out of the output folder.
     set_profile_line(&t, "SG-002", "id", "id: ../x");
@@ -173,7 +157,7 @@ fn set_height(t: &ProgramTest, id: &str, block: &str) {
 
 #[test]
 fn yaml_alias_bombs_and_deep_nesting_are_refused() {
-    let t = demo(3);
+    let t = ProgramTest::demo(3);
     set_height(&t, "SG-001", &format!("\n{}", alias_bomb(2)));
     set_height(&t, "SG-002", &format!(" {}", deep(50_000)));
     let o = out(&t);
@@ -258,7 +242,7 @@ fn yaml_alias_bombs_and_deep_nesting_are_refused() {
 #[test]
 fn oversized_files_are_refused_before_reading() {
     use cohortpress::limits::{MAX_CSV_BYTES, MAX_YAML_BYTES};
-    let t = demo(3);
+    let t = ProgramTest::demo(3);
     // Sparse files: their size is over the limit without the test writing 64 MiB.
     let big_csv = std::fs::File::options()
         .append(true)
@@ -379,7 +363,7 @@ fn files_containing(dir: &Path, needle: &[u8]) -> Vec<String> {
 
 #[test]
 fn links_and_special_files_are_never_read() {
-    let t = demo(5);
+    let t = ProgramTest::demo(5);
     let p = |rel: &str| t.dir.join("participants").join(rel);
     // A unique value in the environment: no byte of it may reach any output, log or cache.
     let secret = format!("cp-secret-{}", std::process::id());
@@ -527,7 +511,7 @@ const HOSTILE_CEILING_MIB: u64 = 1024;
 #[test]
 fn hostile_files_are_refused_within_a_memory_ceiling_and_the_others_are_reported() {
     use std::fmt::Write;
-    let t = demo(6);
+    let t = ProgramTest::demo(6);
     let p = |rel: &str| t.dir.join("participants").join(rel);
     // One large anchor and 20,000 aliases to it.
     let profile = std::fs::read_to_string(p("SG-001/profile.yaml")).unwrap();
@@ -622,7 +606,7 @@ fn hostile_files_are_refused_within_a_memory_ceiling_and_the_others_are_reported
 
 #[test]
 fn control_characters_and_bad_overrides_are_shown_safely_by_check() {
-    let t = demo(2);
+    let t = ProgramTest::demo(2);
     let p = |rel: &str| t.dir.join("participants").join(rel);
     // ESC sequences (clear screen, set title), NUL, a C1 control and a bidi override in values.
     let weights = std::fs::read_to_string(p("SG-001/weights.csv")).unwrap();
@@ -862,7 +846,7 @@ fn demo_program_never_replaces_a_program_made_real_or_a_foreign_folder() {
     };
     // A program started from the demo and made real: its title edited, a real participant
     // added. Generating the demo again by mistake keeps every file.
-    let t = demo(2);
+    let t = ProgramTest::demo(2);
     let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
     let yaml = yaml.replace("title: Steady Ground 2026", "title: Our Pilot");
     std::fs::write(t.dir.join("program.yaml"), yaml).unwrap();
@@ -905,7 +889,7 @@ fn control_characters_from_input_never_reach_a_csv_output_raw() {
     // A terminal escape (ESC ] … BEL retitles the window) and a right-to-left override in a
     // dropped row: the row's text is quoted in metrics/data-quality.csv, which an
     // administrator may well `cat`.
-    let t = demo(2);
+    let t = ProgramTest::demo(2);
     let act = t.dir.join("participants/SG-001/activity.csv");
     let mut text = std::fs::read_to_string(&act).unwrap();
     // (One field too many: a row that only leaves off trailing values is read.)

@@ -14,23 +14,6 @@ use std::time::{Duration, Instant};
 const AS_OF: &str = "2026-12-01";
 const BIN: &str = env!("CARGO_BIN_EXE_cohortpress");
 
-/// A fresh generated demo program of `n` participants (seed 2026), without planted defects.
-fn demo(n: usize) -> ProgramTest {
-    let scratch = tempfile::Builder::new()
-        .prefix("cohortpress-demo-")
-        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
-        .unwrap();
-    let dir = scratch.path().join("p");
-    let out = Command::new(BIN)
-        .args(["demo-program", dir.to_str().unwrap(), "--participants"])
-        .arg(n.to_string())
-        .arg("--no-defects")
-        .output()
-        .unwrap();
-    assert!(out.status.success(), "{out:?}");
-    ProgramTest::from_dir(&dir)
-}
-
 /// An output folder beside the program folder (outside it, so outputs never become inputs).
 fn out(t: &ProgramTest, name: &str) -> String {
     t.dir
@@ -120,7 +103,7 @@ fn assert_same_tree(a: &str, b: &str) {
 
 #[test]
 fn exit_codes_are_the_documented_ones() {
-    let t = demo(6);
+    let t = ProgramTest::demo(6);
     let ok = run(&t, &out(&t, "r"), &["--formats", "html"]);
     assert_eq!(ok.code, 0, "{}", ok.stderr);
     // A warning: a file in a participant folder that the loader does not read.
@@ -175,7 +158,7 @@ fn exit_codes_are_the_documented_ones() {
 /// and nothing partial at the final path; the lock file it leaves does not block the next run.
 #[test]
 fn a_killed_run_leaves_the_previous_output_and_its_lock_blocks_nobody() {
-    let t = demo(200);
+    let t = ProgramTest::demo(200);
     let o = out(&t, "reports");
     // "Last month": a complete output from two participants.
     let first = run(&t, &o, &["--only", "SG-001", "SG-002"]);
@@ -226,7 +209,7 @@ fn a_killed_run_leaves_the_previous_output_and_its_lock_blocks_nobody() {
 
 #[test]
 fn repeated_runs_and_any_job_count_give_identical_outputs() {
-    let t = demo(10);
+    let t = ProgramTest::demo(10);
     let (a, b, c) = (out(&t, "a"), out(&t, "b"), out(&t, "c"));
     assert_eq!(run(&t, &a, &["--jobs", "2"]).code, 0);
     assert_eq!(run(&t, &b, &["--jobs", "2"]).code, 0);
@@ -270,7 +253,7 @@ fn repeated_runs_and_any_job_count_give_identical_outputs() {
 #[test]
 fn outputs_are_owner_only_unless_group_readable() {
     use std::os::unix::fs::PermissionsExt;
-    let t = demo(3);
+    let t = ProgramTest::demo(3);
     let mode = |p: &Path| std::fs::metadata(p).unwrap().permissions().mode() & 0o777;
     let o = out(&t, "private");
     assert_eq!(run(&t, &o, &["--formats", "html"]).code, 0);
@@ -291,7 +274,7 @@ fn outputs_are_owner_only_unless_group_readable() {
 
 #[test]
 fn a_cron_style_run_logs_json_lines_and_no_progress_bar() {
-    let t = demo(4);
+    let t = ProgramTest::demo(4);
     // `ProgramTest::run` gives the binary no terminal and a closed standard input.
     let r = run(
         &t,
@@ -333,7 +316,7 @@ fn a_cron_style_run_logs_json_lines_and_no_progress_bar() {
 
 #[test]
 fn an_incremental_run_recomputes_only_what_changed_and_equals_a_full_run() {
-    let t = demo(10);
+    let t = ProgramTest::demo(10);
     let inc = out(&t, "inc");
     assert_eq!(run(&t, &inc, &[]).code, 0);
     let before = tree_hashes(Path::new(&inc));
@@ -402,7 +385,7 @@ fn an_incremental_run_recomputes_only_what_changed_and_equals_a_full_run() {
 
 #[test]
 fn three_shards_merged_equal_a_single_run() {
-    let t = demo(12);
+    let t = ProgramTest::demo(12);
     let single = out(&t, "single");
     assert_eq!(run(&t, &single, &[]).code, 0);
     let mut shard_dirs = Vec::new();
@@ -499,7 +482,7 @@ fn three_shards_merged_equal_a_single_run() {
 /// the variables Slurm sets), on the real binary: the merged output equals a single run.
 #[test]
 fn the_slurm_example_runs_shards_and_merges_to_a_single_runs_output() {
-    let t = demo(12);
+    let t = ProgramTest::demo(12);
     let runs = t.dir.parent().unwrap().join("runs");
     let script = crate::harness::repo_root().join("examples/slurm-array.sh");
     let bin_dir = Path::new(BIN).parent().unwrap();
@@ -539,7 +522,7 @@ fn the_slurm_example_runs_shards_and_merges_to_a_single_runs_output() {
 /// over weeks still to come.
 #[test]
 fn a_period_still_under_way_is_reported_up_to_the_as_of_date() {
-    let t = demo(3);
+    let t = ProgramTest::demo(3);
     let o = out(&t, "r");
     let r = t.run(&[
         "run",
