@@ -678,9 +678,8 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         .map(|s| format!(", by about {}", rate_words(s.value, f.units)))
         .unwrap_or_default();
     // Row 3 is reached by a rising slope, or by a rise from the lowest point confirmed by level
-    // while the last four weeks cannot say whether it goes on.
-    // The rise itself, with its range, stands in the headline and the summary above; the
-    // section does not print it a third time.
+    // while the last four weeks cannot say whether it goes on. The rise itself, with its range,
+    // stands in the headline and the summary above; the section does not print it a third time.
     let opening = match state.status {
         s if state.regained && s != TrendStatus::Regaining => format!(
             "Your weight has come back up from its lowest point, as shown above. {} This happens to most people at some point; the first step is to steady it where it is now.",
