@@ -618,17 +618,26 @@ pub fn import(
     if staging.exists() {
         std::fs::remove_dir_all(&staging).map_err(io)?;
     }
-    std::fs::create_dir_all(&staging).map_err(io)?;
-    std::fs::create_dir_all(&base).map_err(io)?;
-    for (pid, data) in &plan {
-        let d = staging.join(pid);
-        std::fs::create_dir(&d).map_err(io)?;
-        for (name, text) in participant_files(pid, data) {
-            std::fs::write(d.join(name), text).map_err(io)?;
+    let write = || -> std::io::Result<()> {
+        std::fs::create_dir_all(&staging)?;
+        std::fs::create_dir_all(&base)?;
+        for (pid, data) in &plan {
+            let d = staging.join(pid);
+            std::fs::create_dir(&d)?;
+            for (name, text) in participant_files(pid, data) {
+                std::fs::write(d.join(name), text)?;
+            }
         }
-    }
-    for (pid, _) in &plan {
-        std::fs::rename(staging.join(pid), base.join(pid)).map_err(io)?;
+        for (pid, _) in &plan {
+            std::fs::rename(staging.join(pid), base.join(pid))?;
+        }
+        Ok(())
+    };
+    // A failed import leaves no staging behind: what was not moved into place is removed (the
+    // folders already moved are whole, and the message says the import failed).
+    if let Err(e) = write() {
+        let _ = std::fs::remove_dir_all(&staging);
+        return Err(io(e));
     }
     std::fs::remove_dir_all(&staging).map_err(io)?;
     let mut s = format!(

@@ -272,3 +272,38 @@ fn two_patients_for_one_participant_folder_are_refused_by_name() {
         "nothing written"
     );
 }
+
+/// A write that fails part-way (here `participants` is a file, so its folder cannot be made)
+/// left `.cohortpress-import.staging` behind in the program folder; it is removed now.
+#[test]
+fn a_failed_import_leaves_no_staging_behind() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("one.ndjson");
+    let patient = json!({"resourceType": "Patient", "id": "SG-001", "gender": "female", "birthDate": "1980-01-01"});
+    let weight = json!({"resourceType": "Observation", "id": "w1", "status": "final",
+        "code": {"coding": [{"system": LOINC, "code": BODY_WEIGHT}]},
+        "subject": {"reference": "Patient/SG-001"}, "effectiveDateTime": "2026-04-01",
+        "valueQuantity": {"value": 80.0, "system": "http://unitsofmeasure.org", "code": "kg"}});
+    fs::write(&file, format!("{patient}\n{weight}\n")).unwrap();
+    let out = dir.path().join("p");
+    fs::create_dir(&out).unwrap();
+    fs::write(out.join("participants"), "not a folder").unwrap();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+        .args(["import", "fhir"])
+        .arg(&file)
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_ne!(o.status.code(), Some(0), "{err}");
+    assert!(err.contains("cannot write the import"), "{err}");
+    assert!(
+        !out.join(".cohortpress-import.staging").exists(),
+        "staging left behind"
+    );
+    assert_eq!(
+        fs::read_to_string(out.join("participants")).unwrap(),
+        "not a folder"
+    );
+}
