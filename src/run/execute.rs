@@ -540,20 +540,35 @@ fn process_participant(
         let ctx =
             report::participant_context(&plan.report_scope(), &data, &results, &loaded.diagnostics);
         if plan.formats.contains(&crate::program::Format::Pdf) {
+            // Logged now, and kept with the participant's other warnings (the data-quality list
+            // and the run's warning count).
+            let mut warn = |file: String, field: Option<&str>, message: String| {
+                tracing::warn!("{}: {file}: {message}", data.profile.id);
+                let mut d = Diagnostic::warning(file, message).participant(&data.profile.id);
+                if let Some(f) = field {
+                    d = d.field(f);
+                }
+                rec.diagnostics.push(DiagRecord::from_diagnostic(&d));
+            };
             if let Some(missing) = report::pdf_name_fallback(&ctx) {
-                tracing::warn!(
-                    "{}: participants/{}/profile.yaml: the PDF's font has no glyph for {} in the participant's name; the PDF names the participant by id instead (the HTML keeps the name)",
-                    data.profile.id,
-                    dir.id,
-                    glyph_list(&missing)
+                warn(
+                    format!("{}/{}/profile.yaml", participant::PARTICIPANTS_DIR, dir.id),
+                    Some("name"),
+                    format!(
+                        "the PDF's font has no glyph for {} in the participant's name; the PDF names the participant by id instead (the HTML keeps the name)",
+                        glyph_list(&missing)
+                    ),
                 );
             }
             let missing = report::pdf_unshowable_text(&ctx);
             if !missing.is_empty() {
-                tracing::warn!(
-                    "{}: the PDF's font has no glyph for {} in the report's text (a site, team, activity or other name from the inputs); they show as empty boxes in the PDF (the HTML shows them)",
-                    data.profile.id,
-                    glyph_list(&missing)
+                warn(
+                    format!("{}/{}", participant::PARTICIPANTS_DIR, dir.id),
+                    None,
+                    format!(
+                        "the PDF's font has no glyph for {} in the report's text (a site, team, activity or other name from the inputs); they show as empty boxes in the PDF (the HTML shows them)",
+                        glyph_list(&missing)
+                    ),
                 );
             }
         }

@@ -1275,10 +1275,20 @@ fn a_name_the_pdf_font_cannot_show_is_replaced_by_the_id_with_a_warning() {
     // Other text the font lacks is named too (it shows as boxes in the PDF).
     assert!(
         out.stderr.contains(
-            "SG-900: the PDF's font has no glyph for `東` U+6771, `京` U+4EAC in the report's text"
+            "SG-900: participants/SG-900: the PDF's font has no glyph for `東` U+6771, `京` U+4EAC in the report's text"
         ),
         "{}",
         out.stderr
+    );
+    // Both are kept with the participant's warnings: in the data-quality list and the count.
+    let dq = std::fs::read_to_string(prog.dir.join("o/metrics/data-quality.csv")).unwrap();
+    assert!(
+        dq.contains("warning,SG-900,participants/SG-900/profile.yaml,,,name,\"the PDF's font has no glyph for `王`"),
+        "{dq}"
+    );
+    assert!(
+        dq.contains("warning,SG-900,participants/SG-900,,,,\"the PDF's font has no glyph for `東`"),
+        "{dq}"
     );
     // Only the participant whose text cannot be shown.
     assert!(!out.stderr.contains("SG-007: "), "{}", out.stderr);
