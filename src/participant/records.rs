@@ -318,6 +318,8 @@ fn in_window<T>(
 enum WeightUnit {
     Kg,
     Lb,
+    /// The imperial stone of 14 lb (decimal stones, as British scales export them).
+    St,
 }
 
 #[derive(Debug, Clone)]
@@ -342,9 +344,13 @@ impl RawWeight {
         match self.unit {
             WeightUnit::Kg => self.value,
             WeightUnit::Lb => Mass::from_lb(self.value).kg(),
+            WeightUnit::St => Mass::from_lb(LB_PER_STONE * self.value).kg(),
         }
     }
 }
+
+/// Pounds in a stone (exactly 14; Weights and Measures Act 1985, Schedule 1).
+const LB_PER_STONE: f64 = 14.0;
 
 /// The median of a non-empty slice (reorders it): the middle order statistic, or the mean of
 /// the two middle ones, found by selection rather than a full sort.
@@ -386,10 +392,11 @@ pub fn parse_weights(
         let unit = match unit_text.to_lowercase().as_str() {
             "kg" | "kgs" | "kilogram" | "kilograms" => WeightUnit::Kg,
             "lb" | "lbs" | "pound" | "pounds" => WeightUnit::Lb,
+            "st" | "stone" | "stones" => WeightUnit::St,
             _ => {
                 d.push(
                     c.warn("unit", "unknown weight unit; the row is dropped")
-                        .expected("`kg` or `lb`")
+                        .expected("`kg`, `lb` or `st` (decimal stones)")
                         .found(format!("`{unit_text}`")),
                 );
                 return None;
@@ -484,10 +491,10 @@ pub fn parse_weights(
                 .field("weight")
                 .found(format!(
                     "`{v}` with unit `{}`",
-                    if r.value.unit == WeightUnit::Kg {
-                        "kg"
-                    } else {
-                        "lb"
+                    match r.value.unit {
+                        WeightUnit::Kg => "kg",
+                        WeightUnit::Lb => "lb",
+                        WeightUnit::St => "st",
                     }
                 ))
                 .hint("check the `unit` column of this row and correct it"),
@@ -500,6 +507,7 @@ pub fn parse_weights(
             let shown = match r.value.unit {
                 WeightUnit::Kg => format!("`{}` kg", r.value.value),
                 WeightUnit::Lb => format!("`{}` lb", r.value.value),
+                WeightUnit::St => format!("`{}` st", r.value.value),
             };
             diags.push(
                 ctx.warning("implausible weight; the row is dropped")

@@ -275,7 +275,7 @@ fn dates_outside_the_window_are_dropped() {
 #[test]
 fn bad_units_dates_and_times() {
     let (w, diags) = weights(
-        "date,weight,unit,time\n2026-04-01,72,stone,\n2026-13-01,72,kg,\n2026-04-02,72,kg,7h30\n,72,kg,\n",
+        "date,weight,unit,time\n2026-04-01,72,ounce,\n2026-13-01,72,kg,\n2026-04-02,72,kg,7h30\n,72,kg,\n",
     );
     assert_eq!(w.len(), 1);
     assert_eq!(w[0].time, None);
@@ -284,6 +284,23 @@ fn bad_units_dates_and_times() {
     assert!(diags[1].message.contains("unreadable date"));
     assert!(diags[2].message.contains("unreadable time"));
     assert!(diags[3].message.contains("`date` is empty"));
+}
+
+/// British scales export decimal stones; a `st` unit dropped every row of such a file.
+#[test]
+fn stones_are_read_as_fourteen_pounds() {
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-01,14.5,st\n2026-04-02,14.4,stone\n2026-04-03,92.0,kg\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 3);
+    // 14.5 st = 203 lb = 92.079… kg (1 lb = 0.45359237 kg exactly).
+    assert!(
+        (w[0].weight.kg() - 203.0 * 0.453_592_37).abs() < 1e-9,
+        "{}",
+        w[0].weight.kg()
+    );
+    assert!((w[1].weight.kg() - 14.4 * 14.0 * 0.453_592_37).abs() < 1e-9);
 }
 
 #[test]
