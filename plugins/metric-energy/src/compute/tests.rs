@@ -43,6 +43,33 @@ fn data(profile: Profile) -> ParticipantData {
     }
 }
 
+/// One weigh-in a day from `from`, of `kg[i]` on day i.
+fn daily_weigh_ins(from: NaiveDate, kg: &[f64]) -> Vec<WeighIn> {
+    kg.iter()
+        .enumerate()
+        .map(|(i, &w)| WeighIn {
+            date: day_after(from, i as u64),
+            time: None,
+            weight: Mass::from_kg(w),
+            source: None,
+        })
+        .collect()
+}
+
+/// `n` days of food logs of `kcal` each from `from`.
+fn daily_logs(from: NaiveDate, n: usize, kcal: f64) -> Vec<IntakeDay> {
+    (0..n as u64)
+        .map(|i| IntakeDay {
+            date: day_after(from, i),
+            kcal,
+            carbs_g: None,
+            fat_g: None,
+            protein_g: None,
+            free_sugars_g: None,
+        })
+        .collect()
+}
+
 fn ctx(
     start: NaiveDate,
     end: NaiveDate,
@@ -364,12 +391,7 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
     // A woman of 60 kg at maintenance: her implied intake is low, so a 0.9 kg/week target
     // would need an intake below 1200 kcal/d.
     let mut data = data(profile(Sex::Female, 160.0, 60.0, enrolled));
-    data.weights = vec![WeighIn {
-        date: enrolled,
-        time: None,
-        weight: Mass::from_kg(60.0),
-        source: None,
-    }];
+    data.weights = daily_weigh_ins(enrolled, &[60.0]);
     let weights = vec![60.0; n];
     let mut c = ctx(
         enrolled,
@@ -449,12 +471,7 @@ fn plateau_from_intake_drift_is_told_apart_from_the_expected_slowdown() {
     let pstart = day_after(enrolled, 100);
     let slope_wk = (w[139] - w[100]) / 39.0 * 7.0;
     let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
-    data.weights = vec![WeighIn {
-        date: enrolled,
-        time: None,
-        weight: Mass::from_kg(100.0),
-        source: None,
-    }];
+    data.weights = daily_weigh_ins(enrolled, &[100.0]);
     let mut c = ctx(
         enrolled,
         d("2027-12-31"),
@@ -548,14 +565,7 @@ fn without_trend_output_a_straight_line_fit_is_used_and_flagged() {
     let model = man_model();
     let w = model.simulate_constant(90, model.ei0 - 500.0, 0.0);
     let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
-    data.weights = (0..=86)
-        .map(|i| WeighIn {
-            date: day_after(enrolled, i),
-            time: None,
-            weight: Mass::from_kg(w[i as usize]),
-            source: None,
-        })
-        .collect();
+    data.weights = daily_weigh_ins(enrolled, &w[..=86]);
     let c = ctx(
         enrolled,
         d("2027-06-30"),
@@ -593,12 +603,7 @@ fn no_weigh_ins_gives_missing_values_not_an_error() {
 fn lean_mass_equation_without_body_fat_falls_back_and_says_so() {
     let enrolled = d("2027-01-04");
     let mut data = data(profile(Sex::Female, 165.0, 35.0, enrolled));
-    data.weights = vec![WeighIn {
-        date: enrolled,
-        time: None,
-        weight: Mass::from_kg(65.0),
-        source: None,
-    }];
+    data.weights = daily_weigh_ins(enrolled, &[65.0]);
     let period = Period {
         from: enrolled,
         to: d("2027-01-31"),
@@ -634,12 +639,7 @@ fn activity_is_counted_net_of_rest_and_raises_the_implied_intake() {
     };
     let n = days_incl(enrolled, period.to) as usize;
     let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
-    data.weights = vec![WeighIn {
-        date: enrolled,
-        time: None,
-        weight: Mass::from_kg(85.0),
-        source: None,
-    }];
+    data.weights = daily_weigh_ins(enrolled, &[85.0]);
     let weights = vec![85.0; n];
     let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::Value::Null);
     c.earlier.insert(
@@ -680,14 +680,7 @@ fn logged_record(intake: &dyn Fn(usize) -> f64) -> ModuleOutput {
     let states = model.simulate_from(model.baseline_state(), n - 1, intake, |_| 0.0);
     let weights: Vec<f64> = states.iter().map(|s| model.weight(s)).collect();
     let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
-    data.weights = (0..n)
-        .map(|i| WeighIn {
-            date: day_after(enrolled, i as u64),
-            time: None,
-            weight: Mass::from_kg(weights[i]),
-            source: None,
-        })
-        .collect();
+    data.weights = daily_weigh_ins(enrolled, &weights);
     data.intake = (0..n)
         .map(|i| IntakeDay {
             date: day_after(enrolled, i as u64),
@@ -844,16 +837,7 @@ fn a_rise_faster_than_food_can_supply_gives_no_implied_intake() {
                 source: None,
             })
             .collect();
-        data.intake = (0..n as u64)
-            .map(|i| IntakeDay {
-                date: day_after(enrolled, i),
-                kcal: 1800.0,
-                carbs_g: None,
-                fat_g: None,
-                protein_g: None,
-                free_sugars_g: None,
-            })
-            .collect();
+        data.intake = daily_logs(enrolled, n, 1800.0);
         let mut c = ctx(enrolled, d("2027-06-30"), period, settings);
         c.earlier.insert(
             "trend".into(),
@@ -989,24 +973,8 @@ fn first_month_underreporting_has_its_bounds_in_order() {
     let n = days_incl(enrolled, period.to) as usize;
     let weights: Vec<f64> = (0..n).map(|i| 95.0 - 0.08 * i as f64).collect();
     let mut data = data(profile(Sex::Male, 178.0, 50.0, enrolled));
-    data.weights = (0..n)
-        .map(|i| WeighIn {
-            date: day_after(enrolled, i as u64),
-            time: None,
-            weight: Mass::from_kg(weights[i]),
-            source: None,
-        })
-        .collect();
-    data.intake = (0..n as u64)
-        .map(|i| IntakeDay {
-            date: day_after(enrolled, i),
-            kcal: 1500.0,
-            carbs_g: None,
-            fat_g: None,
-            protein_g: None,
-            free_sugars_g: None,
-        })
-        .collect();
+    data.weights = daily_weigh_ins(enrolled, &weights);
+    data.intake = daily_logs(enrolled, n, 1500.0);
     let mut c = ctx(enrolled, d("2027-08-31"), period, serde_json::json!({}));
     c.earlier.insert(
         "trend".into(),
@@ -1043,25 +1011,9 @@ fn weekly_energy_use_uses_the_persons_activity_level() {
     let n = days_incl(enrolled, period.to) as usize;
     let weights = vec![80.0; n];
     let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
-    data.weights = (0..n)
-        .map(|i| WeighIn {
-            date: day_after(enrolled, i as u64),
-            time: None,
-            weight: Mass::from_kg(weights[i]),
-            source: None,
-        })
-        .collect();
+    data.weights = daily_weigh_ins(enrolled, &weights);
     // Steady weight on logs of 1,300 kcal/d: a lower activity level than the prior 1.6.
-    data.intake = (0..n as u64)
-        .map(|i| IntakeDay {
-            date: day_after(enrolled, i),
-            kcal: 1300.0,
-            carbs_g: None,
-            fat_g: None,
-            protein_g: None,
-            free_sugars_g: None,
-        })
-        .collect();
+    data.intake = daily_logs(enrolled, n, 1300.0);
     let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
     c.earlier.insert(
         "trend".into(),
