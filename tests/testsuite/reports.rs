@@ -1332,3 +1332,88 @@ fn template_escaping_drops_invisible_direction_characters() {
         "<p>Walk &lt;b&gt;x&lt;/b&gt;[31m</p><p>Walk &lt;b&gt;x&lt;/b&gt;[31m</p>"
     );
 }
+
+/// A participant's readings drop by 6 kg from one day to the next and stay there (another
+/// scale). Read as tissue, the drop made a month of "very fast loss", an implied intake near
+/// nothing and a clinician alert. The trend now finds the step, counts the earlier weigh-ins on
+/// the later level and says so; the weight change, the pace and the energy figures leave the
+/// step out. Against the same person without the step, the change since the start agrees
+/// within 1 kg.
+#[test]
+fn a_step_in_the_weigh_ins_is_named_and_left_out_of_the_figures() {
+    // (report HTML, the participant's row of metrics/participants.csv by column name)
+    let run = |step: f64| -> (String, std::collections::HashMap<String, String>) {
+        let prog = ProgramTest::fixture("report-small");
+        let p = prog.dir.join("participants/SG-007");
+        let start = chrono::NaiveDate::from_ymd_opt(2026, 6, 1).unwrap();
+        let jump = chrono::NaiveDate::from_ymd_opt(2026, 9, 12).unwrap();
+        let mut w = String::from("date,weight,unit\n");
+        let mut intake = String::from("date,kcal\n");
+        for i in 0..=121_i64 {
+            let day = start + chrono::Duration::days(i);
+            let wiggle = [0.3, -0.2, 0.1, -0.4, 0.2, 0.0, -0.1][(i % 7) as usize];
+            let kg = 95.0 - 0.07 * i as f64 + wiggle + if day >= jump { step } else { 0.0 };
+            w.push_str(&format!("{day},{kg:.1},kg\n"));
+            intake.push_str(&format!("{day},1900\n"));
+        }
+        std::fs::write(p.join("weights.csv"), w).unwrap();
+        std::fs::write(p.join("intake.csv"), intake).unwrap();
+        let out = prog.run(&[
+            "run",
+            "{dir}",
+            "--only",
+            "SG-007",
+            "--period",
+            "2026-09",
+            "--as-of",
+            "2026-10-01",
+            "--out",
+            "{dir}/o",
+        ]);
+        assert!(out.code <= 1, "{}", out.stderr);
+        let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-007.html")).unwrap();
+        let csv = std::fs::read_to_string(prog.dir.join("o/metrics/participants.csv")).unwrap();
+        let mut lines = csv.lines();
+        let head: Vec<&str> = lines.next().unwrap().split(',').collect();
+        let row: Vec<&str> = lines.next().unwrap().split(',').collect();
+        let cols = head
+            .iter()
+            .zip(row)
+            .map(|(h, v)| (h.to_string(), v.to_string()))
+            .collect();
+        (html, cols)
+    };
+    let num = |m: &std::collections::HashMap<String, String>, k: &str| -> f64 {
+        m[k].parse().unwrap_or_else(|_| panic!("{k}: {:?}", m[k]))
+    };
+    let (plain, plain_m) = run(0.0);
+    let (stepped, stepped_m) = run(-6.0);
+    assert!(!plain.contains("jumped"));
+    assert!(
+        stepped.contains("between 11 Sep 2026 and 12 Sep 2026 they went down by about 6.0 kg"),
+        "{stepped:.6000}"
+    );
+    for html in [&plain, &stepped] {
+        assert!(!html.contains("came down faster than"), "fast-loss alert");
+    }
+    // The pace is the person's 0.49 kg a week, not the step spread over the month.
+    for m in [&plain_m, &stepped_m] {
+        let rate = num(m, "outcomes.rate_kg_per_week");
+        assert!((rate + 0.49).abs() < 0.1, "{rate}");
+    }
+    // The change since the start and the implied intake agree with the run without the step.
+    let change = |m| num(m, "outcomes.change_kg");
+    assert!(
+        (change(&plain_m) - change(&stepped_m)).abs() < 1.0,
+        "{} vs {}",
+        change(&plain_m),
+        change(&stepped_m)
+    );
+    let implied = |m| num(m, "energy.implied_intake_kcal_per_day");
+    assert!(
+        (implied(&plain_m) - implied(&stepped_m)).abs() < 100.0,
+        "{} vs {}",
+        implied(&plain_m),
+        implied(&stepped_m)
+    );
+}

@@ -80,7 +80,7 @@ pub const MODULE_ID: &str = "outcomes";
 pub mod view;
 
 use cohortpress_metric_api::view::{ModuleView, TableRow};
-use cohortpress_metric_trend::view::{Status, TrendView};
+use cohortpress_metric_trend::view::{Status, TrendView, step_shift_after};
 use view::{
     BmiCategory, CurrentWeightSource, LABS_LABEL, LabCategory, LabRow, MILESTONES_LABEL,
     MilestoneRow, OutcomesFlag, WeightChangeCategory, names,
@@ -725,10 +725,13 @@ impl Weights {
                 .ok()
         });
 
-        // Baseline: the first weigh-in day on or after enrolment, mean of that day.
+        // Baseline: the first weigh-in day on or after enrolment, mean of that day, moved by
+        // the steps the trend found in the weigh-ins since (another scale, a unit mistake): the
+        // change since the start is then counted on one level, as the trend is.
         let raw = daily_means(data, profile.enrolled, to);
         let baseline = raw.first().copied();
-        let w0 = baseline.map(|b| b.1);
+        let steps = trend.as_ref().map_or(&[][..], |t| &t.weigh_in_steps[..]);
+        let w0 = baseline.map(|b| b.1 + step_shift_after(steps, b.0));
 
         // Current weight: the trend's, else the last weigh-in day.
         let trend_current = trend.as_ref().map(|t| t.current_weight_kg);

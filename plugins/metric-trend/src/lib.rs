@@ -23,6 +23,7 @@
 pub mod fast;
 pub mod llt;
 pub mod plateau;
+pub mod step;
 pub mod theil_sen;
 pub mod view;
 
@@ -37,7 +38,10 @@ use llt::{
     rts_smoother,
 };
 use plateau::{PlateauSettings, WindowKind, classify_window, find_periods};
-use view::{PERIODS_LABEL, PeriodKind, PeriodRow, RegainVerdict, Status, TrendFlag, names};
+use view::{
+    PERIODS_LABEL, PeriodKind, PeriodRow, RegainVerdict, Status, TrendFlag, WEIGH_IN_STEPS_LABEL,
+    WeighInStepRow, names,
+};
 
 /// Length of the windows of the `weight_slope_28d` series, days (four whole weeks, so the
 /// weekly weight cycle cancels; REFERENCE §7.3).
@@ -248,6 +252,12 @@ impl MetricModule for TrendModule {
                     "Offset of each non-home weigh-in source (clinic, clothed) from the home scale, taken off its readings",
                 ),
                 OutputSpec::new(
+                    names::WEIGH_IN_STEPS,
+                    "table",
+                    "",
+                    "Steps in the weigh-ins (a jump kept for days, faster than body weight changes) that the trend leaves out",
+                ),
+                OutputSpec::new(
                     names::PERIODS,
                     "table",
                     "",
@@ -301,6 +311,12 @@ impl MetricModule for TrendModule {
                     "flag",
                     "",
                     "Fewer than 3 days with a weigh-in",
+                ),
+                OutputSpec::new(
+                    TrendFlag::WeighInStep.as_str(),
+                    "flag",
+                    "",
+                    "Weigh-ins jumped by more than body weight changes",
                 ),
             ],
             requires: vec![],
@@ -461,6 +477,77 @@ fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
     );
 }
 
+fn steps_table(steps: &[step::Step]) -> Table {
+    let rows: Vec<WeighInStepRow> = steps
+        .iter()
+        .map(|s| WeighInStepRow {
+            before: s.before,
+            after: s.after,
+            step_kg: finite(s.kg),
+            se_kg: finite(s.se),
+        })
+        .collect();
+    Table {
+        name: names::WEIGH_IN_STEPS.into(),
+        label: WEIGH_IN_STEPS_LABEL.into(),
+        columns: WeighInStepRow::columns(),
+        rows: rows.iter().map(WeighInStepRow::write).collect(),
+    }
+}
+
+/// The `weigh_in_step` flag's message for the steps found (`found`, in date order).
+fn step_message(found: &[step::Step]) -> String {
+    let kg_lb = |kg: f64| {
+        format!(
+            "{:.1} kg ({:.1} lb)",
+            kg.abs(),
+            cohortpress_metric_api::units::Mass::from_kg(kg.abs()).lb()
+        )
+    };
+    let one = |s: &step::Step| {
+        format!(
+            "between {} and {} they went {} by about {}",
+            iso(s.before),
+            iso(s.after),
+            if s.kg < 0.0 { "down" } else { "up" },
+            kg_lb(s.kg)
+        )
+    };
+    if let Some(u) = found.iter().find(|s| s.is_unit_change()) {
+        return format!(
+            "The weigh-ins jumped and stayed there: {}, about 2.2 times {} — as if readings in \
+             pounds were written as kilograms, or the reverse. The trend is drawn through them \
+             as they are; please check the unit of the weigh-ins from that day on.",
+            one(u),
+            if u.kg > 0.0 { "higher" } else { "lower" }
+        );
+    }
+    if found.len() > step::MAX_STEPS {
+        return format!(
+            "The weigh-ins jump up and down by {} or more and stay there for days, at {} \
+             places ({}, …): two scales, clothes on and off, or readings in two units may be \
+             mixed. The trend is drawn through them as they are; please check the weigh-ins.",
+            kg_lb(step::MIN_STEP_KG),
+            found.len(),
+            one(&found[0])
+        );
+    }
+    let list: Vec<String> = found.iter().map(one).collect();
+    format!(
+        "The weigh-ins jumped and stayed there: {}. Body weight does not change that fast; a \
+         different scale, clothes, a unit or typing mistake, or a shift of body fluid is more \
+         likely. The trend, the weight change and the energy figures leave the jump out (the \
+         earlier weigh-ins are counted on the level of the later ones); please check the \
+         weigh-ins around {}.",
+        list.join("; "),
+        if found.len() == 1 {
+            "that day"
+        } else {
+            "those days"
+        }
+    )
+}
+
 fn periods_table(rows: &[PeriodRow]) -> Table {
     Table {
         name: names::PERIODS.into(),
@@ -591,11 +678,55 @@ fn tissue_trend(
     )))
 }
 
+/// The trend model fitted to daily means `days` on a daily grid of `grid_len` days from
+/// `first`: (observation times, grid values, variance fit, smoothed run).
+fn fit_daily(
+    days: &[(NaiveDate, f64, usize)],
+    first: NaiveDate,
+    grid_len: usize,
+    outlier_z: f64,
+) -> (Vec<f64>, Vec<Option<f64>>, llt::ParamFit, llt::SmoothedRun) {
+    let obs_t: Vec<f64> = days
+        .iter()
+        .map(|d| (d.0 - first).num_days() as f64)
+        .collect();
+    let obs_y: Vec<Option<f64>> = days.iter().map(|d| Some(d.1)).collect();
+    let mut grid_y: Vec<Option<f64>> = vec![None; grid_len];
+    for (t, y) in obs_t.iter().zip(&obs_y) {
+        grid_y[*t as usize] = *y;
+    }
+    let grid_t: Vec<f64> = (0..grid_len).map(|i| i as f64).collect();
+    let fit_and_filter = |z: f64| {
+        let fit = estimate_params(&obs_t, &obs_y, z);
+        let run = kalman_filter(
+            &grid_t,
+            &grid_y,
+            fit.params,
+            StatePrior::diffuse(days[0].1, DIFFUSE_KAPPA),
+            Some(OutlierScreen { z }),
+        );
+        (fit, run)
+    };
+    let (mut fit, mut run) = fit_and_filter(outlier_z);
+    // The screen is for a stray weigh-in among many. When it leaves out more than a quarter of
+    // the weigh-in days (at least two), it is the trend that is wrong, not the weigh-ins: with
+    // few weigh-ins the first two (which set the starting slope) can be a day apart, the
+    // screen then refuses everything after them, the noise estimated from what is left
+    // shrinks, and the trend runs off on two points (sample program, April 2026: SG-026 read
+    // as 53 kg, BMI 17.2, "−29.8 kg" while weighing about 82 kg; SG-005 as +17 kg). The fit is
+    // then made without the screen (a limit no innovation reaches; an infinite one would
+    // make the likelihood's capped term 0 × ∞), program choice of the quarter.
+    if run.outliers >= 2 && run.outliers * 4 > obs_y.len() {
+        (fit, run) = fit_and_filter(NO_SCREEN_Z);
+    }
+    (obs_t, grid_y, fit, rts_smoother(run))
+}
+
 /// The whole module computation; `to` is the period end (no data after it are used).
 fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> ModuleOutput {
     let mut out = ModuleOutput::default();
     let offsets = source_offsets(data, to, settings.outlier_z);
-    let days = daily_means(data, to, &|_| true, &offsets);
+    let mut days = daily_means(data, to, &|_| true, &offsets);
     let n_weigh_ins: usize = days.iter().map(|d| d.2).sum();
     let days_since = days.last().map(|d| (to - d.0).num_days() as f64);
 
@@ -618,6 +749,7 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         out.series.push(weigh_in_series(data, to, &[]));
         out.tables.push(periods_table(&[]));
         out.tables.push(offsets_table(&offsets));
+        out.tables.push(steps_table(&[]));
         push_missing_scalars(&mut out, n_weigh_ins, days_since);
         insufficient(&mut out, days.len(), to);
         return out;
@@ -636,40 +768,28 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         last_idx + 1
     };
 
-    let obs_t: Vec<f64> = days
-        .iter()
-        .map(|d| (d.0 - first).num_days() as f64)
-        .collect();
-    let obs_y: Vec<Option<f64>> = days.iter().map(|d| Some(d.1)).collect();
-    let mut grid_y: Vec<Option<f64>> = vec![None; grid_len];
-    for (t, y) in obs_t.iter().zip(&obs_y) {
-        grid_y[*t as usize] = *y;
-    }
-    let grid_t: Vec<f64> = (0..grid_len).map(|i| i as f64).collect();
-    let fit_and_filter = |z: f64| {
-        let fit = estimate_params(&obs_t, &obs_y, z);
-        let run = kalman_filter(
-            &grid_t,
-            &grid_y,
-            fit.params,
-            StatePrior::diffuse(days[0].1, DIFFUSE_KAPPA),
-            Some(OutlierScreen { z }),
-        );
-        (fit, run)
+    let (mut obs_t, mut grid_y, mut fit, mut sm) =
+        fit_daily(&days, first, grid_len, settings.outlier_z);
+    // Steps in the weigh-ins (another scale, clothing, a unit or typing mistake kept for days):
+    // the trend is fitted again with the weigh-ins before each step moved onto the level after
+    // it, so the step is not read as tissue (see `step`). Too many steps are a mix of scales:
+    // flagged, not moved.
+    let found = step::find_steps(
+        &days.iter().map(|d| (d.0, d.1)).collect::<Vec<_>>(),
+        fit.params.sigma2_eps.sqrt(),
+        correlated_scatter_inflation(&sm),
+    );
+    let step_flag = (!found.is_empty()).then(|| step_message(&found));
+    let movable = found.len() <= step::MAX_STEPS && !found.iter().any(step::Step::is_unit_change);
+    let steps = if !found.is_empty() && movable {
+        for d in &mut days {
+            d.1 += step::shift_after(&found, d.0);
+        }
+        (obs_t, grid_y, fit, sm) = fit_daily(&days, first, grid_len, settings.outlier_z);
+        found
+    } else {
+        Vec::new()
     };
-    let (mut fit, mut run) = fit_and_filter(settings.outlier_z);
-    // The screen is for a stray weigh-in among many. When it leaves out more than a quarter of
-    // the weigh-in days (at least two), it is the trend that is wrong, not the weigh-ins: with
-    // few weigh-ins the first two (which set the starting slope) can be a day apart, the
-    // screen then refuses everything after them, the noise estimated from what is left
-    // shrinks, and the trend runs off on two points (sample program, April 2026: SG-026 read
-    // as 53 kg, BMI 17.2, "−29.8 kg" while weighing about 82 kg; SG-005 as +17 kg). The fit is
-    // then made without the screen (a limit no innovation reaches; an infinite one would
-    // make the likelihood's capped term 0 × ∞), program choice of the quarter.
-    if run.outliers >= 2 && run.outliers * 4 > obs_y.len() {
-        (fit, run) = fit_and_filter(NO_SCREEN_Z);
-    }
-    let sm = rts_smoother(run);
     let inflation = correlated_scatter_inflation(&sm);
     let mut settings = *settings;
     settings.plateau.sd_inflation = inflation;
@@ -777,6 +897,14 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         .collect::<Vec<_>>();
     out.tables.push(periods_table(&rows));
     out.tables.push(offsets_table(&offsets));
+    out.tables.push(steps_table(&steps));
+    if let Some(message) = step_flag {
+        out.push_flag(
+            TrendFlag::WeighInStep.as_str(),
+            FlagSeverity::Notice,
+            message,
+        );
+    }
 
     // Scalars.
     let cur = sm.mean[last_idx][0];

@@ -34,6 +34,9 @@ pub mod names {
     /// Offsets of non-home weigh-in sources from the home scale (table of
     /// [`super::SourceOffsetRow`]).
     pub const SOURCE_OFFSETS: &str = "source_offsets";
+    /// Steps found in the weigh-ins and left out of the trend (table of
+    /// [`super::WeighInStepRow`]).
+    pub const WEIGH_IN_STEPS: &str = "weigh_in_steps";
     /// Trend weight on the last day with a weigh-in (scalar, kg, with interval).
     pub const CURRENT_WEIGHT_KG: &str = "current_weight_kg";
     /// Mean trend slope over the last window (scalar, kg/wk, with interval).
@@ -103,6 +106,8 @@ code_enum! {
     pub enum TrendFlag {
         /// Fewer than 3 days with a weigh-in.
         InsufficientData = "insufficient_data" => "Fewer than 3 days with a weigh-in",
+        /// The weigh-ins jumped between two days by more than body weight changes.
+        WeighInStep = "weigh_in_step" => "Weigh-ins jumped by more than body weight changes",
     }
 }
 
@@ -217,6 +222,60 @@ impl TableRow for SourceOffsetRow {
 /// Label of the `source_offsets` table.
 pub const SOURCE_OFFSETS_LABEL: &str = "Weigh-in source offsets from the home scale";
 
+/// One row of the `weigh_in_steps` table: a step in the weigh-ins the trend leaves out (the
+/// weigh-ins before it are moved by `step_kg` onto the level after it).
+#[derive(Debug, Clone, PartialEq)]
+pub struct WeighInStepRow {
+    /// Last weigh-in day before the step.
+    pub before: NaiveDate,
+    /// First weigh-in day after it.
+    pub after: NaiveDate,
+    /// Size of the step, kg (after minus before).
+    pub step_kg: Option<f64>,
+    /// Its standard error, kg.
+    pub se_kg: Option<f64>,
+}
+
+impl TableRow for WeighInStepRow {
+    const COLUMNS: &'static [(&'static str, &'static str, &'static str)] = &[
+        ("before", "", "Last day before"),
+        ("after", "", "First day after"),
+        ("step_kg", "kg", "Step"),
+        ("se_kg", "kg", "Standard error"),
+    ];
+
+    fn read(r: &RowReader<'_>) -> Result<Self, ViewError> {
+        Ok(WeighInStepRow {
+            before: r.required("before", r.date("before")?)?,
+            after: r.required("after", r.date("after")?)?,
+            step_kg: r.number("step_kg")?,
+            se_kg: r.number("se_kg")?,
+        })
+    }
+
+    fn write(&self) -> Vec<Cell> {
+        vec![
+            cell::date(Some(self.before)),
+            cell::date(Some(self.after)),
+            cell::number(self.step_kg),
+            cell::number(self.se_kg),
+        ]
+    }
+}
+
+/// Label of the `weigh_in_steps` table.
+pub const WEIGH_IN_STEPS_LABEL: &str = "Steps in the weigh-ins left out of the trend";
+
+/// Total of the steps after `day`, kg: what a weigh-in on `day` is moved by in the trend (0
+/// without steps).
+pub fn step_shift_after(steps: &[WeighInStepRow], day: NaiveDate) -> f64 {
+    steps
+        .iter()
+        .filter(|s| s.before >= day)
+        .filter_map(|s| s.step_kg)
+        .sum()
+}
+
 /// Everything the `trend` module outputs, typed.
 ///
 /// Outputs the module leaves out when there are fewer than 3 days with a weigh-in read as
@@ -245,6 +304,8 @@ pub struct TrendView {
     pub periods: Vec<PeriodRow>,
     /// Offsets of non-home weigh-in sources.
     pub source_offsets: Vec<SourceOffsetRow>,
+    /// Steps in the weigh-ins the trend leaves out.
+    pub weigh_in_steps: Vec<WeighInStepRow>,
     /// Trend weight on the last day with a weigh-in, kg.
     pub current_weight_kg: Interval,
     /// Mean trend slope over the last window, kg/wk.
@@ -296,6 +357,9 @@ impl ModuleView for TrendView {
             source_offsets: r
                 .optional(SOURCE_OFFSETS, || r.table(SOURCE_OFFSETS))?
                 .unwrap_or_default(),
+            weigh_in_steps: r
+                .optional(WEIGH_IN_STEPS, || r.table(WEIGH_IN_STEPS))?
+                .unwrap_or_default(),
             current_weight_kg: r.interval(CURRENT_WEIGHT_KG)?,
             slope_kg_per_week: r.interval(SLOPE_KG_PER_WEEK)?,
             theil_sen_slope_kg_per_week: r.interval(THEIL_SEN_SLOPE_KG_PER_WEEK)?,
@@ -325,6 +389,7 @@ impl ModuleView for TrendView {
         }
         w.table(PERIODS, PERIODS_LABEL, &self.periods);
         w.table(SOURCE_OFFSETS, SOURCE_OFFSETS_LABEL, &self.source_offsets);
+        w.table(WEIGH_IN_STEPS, WEIGH_IN_STEPS_LABEL, &self.weigh_in_steps);
         w.interval(CURRENT_WEIGHT_KG, self.current_weight_kg);
         w.interval(SLOPE_KG_PER_WEEK, self.slope_kg_per_week);
         w.interval(
@@ -367,6 +432,7 @@ impl Default for TrendView {
             regain_verdict: None,
             periods: vec![],
             source_offsets: vec![],
+            weigh_in_steps: vec![],
             current_weight_kg: Interval::default(),
             slope_kg_per_week: Interval::default(),
             theil_sen_slope_kg_per_week: Interval::default(),
