@@ -716,13 +716,26 @@ fn weight_chart(
             y: conv(t),
         });
     }
-    let alt = weight_chart_alt(
+    let mut alt = weight_chart_alt(
         plan.program.info.start,
         enrolled,
         plan.period.to,
         !spans.is_empty(),
         target_kg.is_some(),
     );
+    // A step the trend left out: the earlier dots sit off the line by its size; say why.
+    if let Some(last) = v.trend.as_ref().and_then(|t| t.weigh_in_steps.last()) {
+        let shift = v.trend.as_ref().map_or(0.0, |t| {
+            cohortpress_metric_trend::view::step_shift_after(&t.weigh_in_steps, last.before)
+        });
+        alt.push_str(&format!(
+            " The weigh-ins up to {} sit {} {} the trend line: it counts them on the level of \
+             the later weigh-ins (see the points to note).",
+            fmt::date(last.before),
+            fmt::weight(shift.abs(), units),
+            if shift < 0.0 { "above" } else { "below" }
+        ));
+    }
     let chart = Chart::Line(LineChart {
         title: "Weight".into(),
         y_label: unit.into(),

@@ -1393,6 +1393,8 @@ fn a_step_in_the_weigh_ins_is_named_and_left_out_of_the_figures() {
         stepped.contains("between 11 Sep 2026 and 12 Sep 2026 they went down by about 6.0 kg"),
         "{stepped:.6000}"
     );
+    // The chart's caption says why the earlier dots sit off the line.
+    assert!(stepped.contains("The weigh-ins up to 11 Sep 2026 sit 6.0 kg above the trend line"));
     for html in [&plain, &stepped] {
         assert!(!html.contains("came down faster than"), "fast-loss alert");
     }
