@@ -41,6 +41,9 @@ pub const UNIT_SWAP_TOLERANCE: f64 = 0.06;
 /// Neighbours of a weigh-in for the unit check: other weigh-ins within this many days
 /// (common practice).
 pub const UNIT_SWAP_WINDOW_DAYS: i64 = 14;
+/// Earlier weigh-ins a weigh-in is also compared with, in date order, for stretches written in
+/// the other unit (program choice: five is a working week of daily weigh-ins).
+pub const UNIT_SWAP_PREVIOUS: usize = 5;
 
 /// The days a participant's data may fall on.
 #[derive(Debug, Clone, Copy)]
@@ -448,7 +451,47 @@ pub fn parse_weights(
     // Day numbers, so the searches compare integers.
     let day = |d: NaiveDate| i64::from(d.num_days_from_ce());
     let days: Vec<i64> = order.iter().map(|&j| day(rows[j].date)).collect();
+    // `med` is the median the weigh-in is compared with (kg as written), `basis` says what it
+    // is the median of: the corrected value and the warning, or `None`.
+    let judge = |r: &Parsed<RawWeight>, written: f64, med: f64, basis: &str| {
+        let ratio = written / med;
+        let near = |target: f64| (ratio / target - 1.0).abs() <= UNIT_SWAP_TOLERANCE;
+        let v = r.value.value;
+        let (msg, corrected) = match r.value.unit {
+            WeightUnit::Kg if near(LB_PER_KG) => (
+                format!(
+                    "weight {v} kg is about 2.2 times {basis} (median {med:.1} kg); it looks like pounds and is read as {v} lb = {:.1} kg",
+                    Mass::from_lb(v).kg()
+                ),
+                Mass::from_lb(v).kg(),
+            ),
+            WeightUnit::Lb if near(1.0 / LB_PER_KG) => (
+                format!(
+                    "weight {v} lb is about 0.45 times {basis} (median {:.1} lb); it looks like kilograms and is read as {v} kg",
+                    Mass::from_kg(med).lb()
+                ),
+                v,
+            ),
+            _ => return None,
+        };
+        let diag = ctx
+            .warning(msg)
+            .at(r.line, wcol)
+            .field("weight")
+            .found(format!(
+                "`{v}` with unit `{}`",
+                match r.value.unit {
+                    WeightUnit::Kg => "kg",
+                    WeightUnit::Lb => "lb",
+                    WeightUnit::St => "st",
+                }
+            ))
+            .hint("check the `unit` column of this row and correct it");
+        Some((corrected, diag))
+    };
+    let mut swapped = vec![false; rows.len()];
     let mut others: Vec<f64> = Vec::new();
+    let around = format!("the other weigh-ins within {UNIT_SWAP_WINDOW_DAYS} days");
     for (i, r) in rows.iter().enumerate() {
         let today = day(r.date);
         let lo = days.partition_point(|&d| today - d > UNIT_SWAP_WINDOW_DAYS);
@@ -464,41 +507,47 @@ pub fn parse_weights(
             continue;
         }
         let med = median(&mut others);
-        let ratio = written[i] / med;
-        let near = |target: f64| (ratio / target - 1.0).abs() <= UNIT_SWAP_TOLERANCE;
-        let v = r.value.value;
-        let (msg, corrected) = match r.value.unit {
-            WeightUnit::Kg if near(LB_PER_KG) => (
-                format!(
-                    "weight {v} kg is about 2.2 times the other weigh-ins within {UNIT_SWAP_WINDOW_DAYS} days (median {med:.1} kg); it looks like pounds and is read as {v} lb = {:.1} kg",
-                    Mass::from_lb(v).kg()
-                ),
-                Mass::from_lb(v).kg(),
-            ),
-            WeightUnit::Lb if near(1.0 / LB_PER_KG) => (
-                format!(
-                    "weight {v} lb is about 0.45 times the other weigh-ins within {UNIT_SWAP_WINDOW_DAYS} days (median {:.1} lb); it looks like kilograms and is read as {v} kg",
-                    Mass::from_kg(med).lb()
-                ),
-                v,
-            ),
-            _ => continue,
-        };
-        kg[i] = corrected;
-        diags.push(
-            ctx.warning(msg)
-                .at(r.line, wcol)
-                .field("weight")
-                .found(format!(
-                    "`{v}` with unit `{}`",
-                    match r.value.unit {
-                        WeightUnit::Kg => "kg",
-                        WeightUnit::Lb => "lb",
-                        WeightUnit::St => "st",
-                    }
-                ))
-                .hint("check the `unit` column of this row and correct it"),
-        );
+        if let Some((corrected, diag)) = judge(r, written[i], med, &around) {
+            kg[i] = corrected;
+            swapped[i] = true;
+            diags.push(diag);
+        }
+    }
+    // A stretch of weigh-ins in the other unit (an app or scale switched units for weeks): inside
+    // it most neighbours share the wrong unit and the check above sees nothing. So each weigh-in
+    // is also compared, in date order, with the median of the last [`UNIT_SWAP_PREVIOUS`]
+    // weigh-ins before it within twice the window, as read (corrected ones included): the
+    // first weigh-in of the stretch is compared with the right unit, and each later one with
+    // corrected values. A stretch at the very start of a file has no earlier reference and is
+    // left to the trend's step check, which names it.
+    let mut recent: Vec<(i64, f64)> = Vec::new();
+    for &j in &order {
+        let today = day(rows[j].date);
+        if !swapped[j] {
+            others.clear();
+            others.extend(
+                recent
+                    .iter()
+                    .rev()
+                    .filter(|(d, _)| *d < today && today - d <= 2 * UNIT_SWAP_WINDOW_DAYS)
+                    .take(UNIT_SWAP_PREVIOUS)
+                    .map(|x| x.1),
+            );
+            if others.len() >= 3 {
+                let n = others.len();
+                // Both in kg: this row as its unit column says, the earlier ones as read.
+                let med = median(&mut others);
+                let basis = format!("the {n} weigh-ins before it");
+                if let Some((corrected, diag)) = judge(&rows[j], written[j], med, &basis) {
+                    kg[j] = corrected;
+                    swapped[j] = true;
+                    diags.push(diag);
+                }
+            }
+        }
+        if plausible_kg(kg[j]) {
+            recent.push((today, kg[j]));
+        }
     }
 
     let mut out = Vec::new();

@@ -130,6 +130,44 @@ fn pounds_in_a_kg_row_are_converted_with_a_warning() {
     assert!((w[2].weight.kg() - 71.667_594_46).abs() < 1e-8);
 }
 
+/// Three weeks of readings in pounds under `kg` (an app switched units): inside the stretch
+/// most neighbours were pounds too, so none was converted, and the trend dropped them all as
+/// outliers ("too few recent weigh-ins"). Each is now also compared with the weigh-ins before
+/// it, as read, and all are converted with a warning each; the kilograms after the stretch
+/// are left alone.
+#[test]
+fn a_stretch_of_pounds_under_kg_is_converted_reading_by_reading() {
+    let mut text = String::from("date,weight,unit\n");
+    let day =
+        |i: i64| chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap() + chrono::Duration::days(i);
+    for i in 0..60_i64 {
+        let kg = 90.0 - 0.05 * i as f64;
+        let written = if (20..41).contains(&i) {
+            kg / 0.453_592_37
+        } else {
+            kg
+        };
+        text.push_str(&format!("{},{written:.1},kg\n", day(i)));
+    }
+    let (w, diags) = weights(&text);
+    assert_eq!(w.len(), 60);
+    let lines: Vec<u64> = diags.iter().filter_map(|d| d.line).collect();
+    assert_eq!(lines, (22..43).collect::<Vec<u64>>(), "{diags:#?}");
+    assert!(
+        diags
+            .iter()
+            .all(|d| d.message.contains("looks like pounds"))
+    );
+    for (i, x) in w.iter().enumerate() {
+        let kg = 90.0 - 0.05 * i as f64;
+        assert!(
+            (x.weight.kg() - kg).abs() < 0.06,
+            "day {i}: {}",
+            x.weight.kg()
+        );
+    }
+}
+
 #[test]
 fn kilograms_in_an_lb_row_are_converted_with_a_warning() {
     let (w, diags) = weights(
