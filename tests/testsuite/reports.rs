@@ -1398,6 +1398,10 @@ fn a_step_in_the_weigh_ins_is_named_and_left_out_of_the_figures() {
     for html in [&plain, &stepped] {
         assert!(!html.contains("came down faster than"), "fast-loss alert");
     }
+    // The step may be real (fluid, surgery): with the fast flags quiet, the step itself goes
+    // on the clinician's list in the period in which it is first found.
+    assert_eq!(plain_m["clinical_flags"], "");
+    assert_eq!(stepped_m["clinical_flags"], "weigh_in_step");
     // The pace is the person's 0.49 kg a week, not the step spread over the month.
     for m in [&plain_m, &stepped_m] {
         let rate = num(m, "outcomes.rate_kg_per_week");

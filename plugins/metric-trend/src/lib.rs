@@ -328,7 +328,12 @@ impl MetricModule for TrendModule {
         ctx: &ModuleContext,
         data: &ParticipantData,
     ) -> Result<ModuleOutput, ModuleError> {
-        Ok(compute_trend(&Settings::from_ctx(ctx), ctx.period.to, data))
+        Ok(compute_trend(
+            &Settings::from_ctx(ctx),
+            ctx.period.from,
+            ctx.period.to,
+            data,
+        ))
     }
 }
 
@@ -534,11 +539,13 @@ fn step_message(found: &[step::Step]) -> String {
     }
     let list: Vec<String> = found.iter().map(one).collect();
     format!(
-        "The weigh-ins jumped and stayed there: {}. Body weight does not change that fast; a \
-         different scale, clothes, a unit or typing mistake, or a shift of body fluid is more \
-         likely. The trend, the weight change and the energy figures leave the jump out (the \
-         earlier weigh-ins are counted on the level of the later ones); please check the \
-         weigh-ins around {}.",
+        "The weigh-ins jumped and stayed there: {}. Body fat does not change that fast: a \
+         different scale, clothes, or a unit or typing mistake is likely, but body fluid can \
+         (building up, or passed with water tablets), and so can weight after surgery or \
+         childbirth. The trend, the weight change and the energy figures leave the jump out \
+         (the earlier weigh-ins are counted on the level of the later ones); please check the \
+         weigh-ins around {}, and if they are right, review the change with a licensed \
+         clinician.",
         list.join("; "),
         if found.len() == 1 {
             "that day"
@@ -722,8 +729,13 @@ fn fit_daily(
     (obs_t, grid_y, fit, rts_smoother(run))
 }
 
-/// The whole module computation; `to` is the period end (no data after it are used).
-fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> ModuleOutput {
+/// The whole module computation for the period `from`..=`to` (no data after `to` are used).
+fn compute_trend(
+    settings: &Settings,
+    from: NaiveDate,
+    to: NaiveDate,
+    data: &ParticipantData,
+) -> ModuleOutput {
     let mut out = ModuleOutput::default();
     let offsets = source_offsets(data, to, settings.outlier_z);
     let mut days = daily_means(data, to, &|_| true, &offsets);
@@ -774,13 +786,38 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     // the trend is fitted again with the weigh-ins before each step moved onto the level after
     // it, so the step is not read as tissue (see `step`). Too many steps are a mix of scales:
     // flagged, not moved.
-    let found = step::find_steps(
-        &days.iter().map(|d| (d.0, d.1)).collect::<Vec<_>>(),
+    let as_read: Vec<(NaiveDate, f64)> = days.iter().map(|d| (d.0, d.1)).collect();
+    let (sigma, inflation) = (
         fit.params.sigma2_eps.sqrt(),
         correlated_scatter_inflation(&sm),
     );
-    let step_flag = (!found.is_empty()).then(|| step_message(&found));
+    let found = step::find_steps(&as_read, sigma, inflation);
     let movable = found.len() <= step::MAX_STEPS && !found.iter().any(step::Step::is_unit_change);
+    // The weigh-ins cannot tell a new scale from a real change: fluid building up (heart or
+    // kidney failure) or passed with water tablets, surgery, childbirth. Moved, a step no
+    // longer reaches the fast-loss and fast-gain flags that would have put it before a
+    // clinician, so the step flag does: clinical in the report of the period in which the step
+    // is first found (the weigh-ins before the period did not show it), a notice after that,
+    // as the fast flags are raised once for a spell. A step that is not moved stays in the
+    // trend, where those flags judge it.
+    let new_step = movable && {
+        let before_period: Vec<(NaiveDate, f64)> =
+            as_read.iter().copied().filter(|d| d.0 < from).collect();
+        let earlier = step::find_steps(&before_period, sigma, inflation);
+        found.iter().any(|s| {
+            !earlier
+                .iter()
+                .any(|e| (e.after - s.after).num_days().abs() <= step::SIDE_DAYS)
+        })
+    };
+    let step_flag = (!found.is_empty()).then(|| {
+        let severity = if new_step {
+            FlagSeverity::Clinical
+        } else {
+            FlagSeverity::Notice
+        };
+        (severity, step_message(&found))
+    });
     let steps = if !found.is_empty() && movable {
         for d in &mut days {
             d.1 += step::shift_after(&found, d.0);
@@ -898,12 +935,8 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     out.tables.push(periods_table(&rows));
     out.tables.push(offsets_table(&offsets));
     out.tables.push(steps_table(&steps));
-    if let Some(message) = step_flag {
-        out.push_flag(
-            TrendFlag::WeighInStep.as_str(),
-            FlagSeverity::Notice,
-            message,
-        );
+    if let Some((severity, message)) = step_flag {
+        out.push_flag(TrendFlag::WeighInStep.as_str(), severity, message);
     }
 
     // Scalars.
