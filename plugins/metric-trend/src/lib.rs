@@ -804,10 +804,12 @@ fn compute_trend(
         let before_period: Vec<(NaiveDate, f64)> =
             as_read.iter().copied().filter(|d| d.0 < from).collect();
         let earlier = step::find_steps(&before_period, sigma, inflation);
+        // The same step, found on fewer weigh-ins, may sit a day or two off; two steps are at
+        // least 8 days apart (each level kept a week).
         found.iter().any(|s| {
             !earlier
                 .iter()
-                .any(|e| (e.after - s.after).num_days().abs() <= step::SIDE_DAYS)
+                .any(|e| (e.after - s.after).num_days().abs() < 7)
         })
     };
     let step_flag = (!found.is_empty()).then(|| {
