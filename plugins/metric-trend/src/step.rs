@@ -20,8 +20,9 @@
 //! weigh-in days after the boundary minus the median of the three before must reach
 //! [`MIN_STEP_KG`] too, the weigh-ins a week or more after it must still sit at least half of
 //! that away from the level before (a week-long fluid excursion returns), and the weigh-ins a
-//! week or more before it at least half of that away from the level after (the end of a short
-//! excursion is no step either: moved, it would shift the whole record before it). The scatter
+//! week or more before it at least half of that away from the level after, unless the record
+//! starts within that week (the end of a short excursion is no step either: moved, it would
+//! shift the whole record before it). The scatter
 //! SD is the larger of the local fit's residual SD and the trend model's σ_ε for the whole
 //! record: six weigh-ins fit three parameters almost exactly, and a week-long excursion of
 //! correlated scatter fits the shift, so the local residuals alone understate the noise (on the
@@ -221,9 +222,15 @@ fn test_boundary(
     );
     let near = near_after? - near_before?;
     let late = late_after? - near_before?;
-    let early = near_after? - early_before?;
     let kept = |x: f64| x * near > 0.0 && x.abs() >= 0.5 * MIN_STEP_KG;
-    if near.abs() < MIN_STEP_KG || !kept(late) || !kept(early) {
+    // Within the record's first week there is nothing before the level left (a first week on
+    // another scale, or in pounds): only then may the week before be missing.
+    let record_start = floor.is_none() && before.first().map(|d| d.0) == days.first().map(|d| d.0);
+    let early_kept = match early_before {
+        Some(e) => kept(near_after? - e),
+        None => record_start,
+    };
+    if near.abs() < MIN_STEP_KG || !kept(late) || !early_kept {
         return None;
     }
     let delta = rd.iter().zip(&ry).map(|(d, y)| d * y).sum::<f64>() / sdd;
@@ -310,6 +317,23 @@ mod tests {
             .collect();
         let steps = find_steps(&days, 0.4, 1.0);
         assert_eq!(steps.len(), 1, "{steps:?}");
+        assert!(steps[0].is_unit_change(), "{:?}", steps[0]);
+    }
+
+    /// The first five days in pounds under kg (the unit check of the weigh-in files has no
+    /// earlier weigh-in to compare them with): named as a change of unit. Requiring the level
+    /// before a step to have been kept for a week had lost it (there is no week before).
+    #[test]
+    fn pounds_in_the_records_first_days_are_a_unit_change() {
+        let days: Vec<(NaiveDate, f64)> = (0..60)
+            .map(|i| {
+                let kg = 80.0 - 0.05 * i as f64 + wiggle(i, 0.4);
+                (d(i), if i < 5 { kg * LB_PER_KG } else { kg })
+            })
+            .collect();
+        let steps = find_steps(&days, 0.4, 1.0);
+        assert_eq!(steps.len(), 1, "{steps:?}");
+        assert_eq!((steps[0].before, steps[0].after), (d(4), d(5)));
         assert!(steps[0].is_unit_change(), "{:?}", steps[0]);
     }
 
