@@ -500,15 +500,17 @@ fn steps_table(steps: &[step::Step]) -> Table {
     }
 }
 
+/// `|kg|` in kilograms and pounds, one decimal: "6.0 kg (13.2 lb)".
+fn kg_lb(kg: f64) -> String {
+    format!(
+        "{:.1} kg ({:.1} lb)",
+        kg.abs(),
+        cohortpress_metric_api::units::Mass::from_kg(kg.abs()).lb()
+    )
+}
+
 /// The `weigh_in_step` flag's message for the steps found (`found`, in date order).
 fn step_message(found: &[step::Step]) -> String {
-    let kg_lb = |kg: f64| {
-        format!(
-            "{:.1} kg ({:.1} lb)",
-            kg.abs(),
-            cohortpress_metric_api::units::Mass::from_kg(kg.abs()).lb()
-        )
-    };
     let one = |s: &step::Step| {
         format!(
             "between {} and {} they went {} by about {}",
@@ -552,6 +554,20 @@ fn step_message(found: &[step::Step]) -> String {
         } else {
             "those days"
         }
+    )
+}
+
+/// The `weigh_in_step` flag's message for a jump in the record's last week (see
+/// [`step::recent_step`]).
+fn recent_step_message(s: &step::Step) -> String {
+    format!(
+        "The last weigh-ins jumped: from {} on they are about {} {} than before. That is \
+         too recent to tell a new level from a few stray readings, and the trend may leave \
+         them out for now. Please check them; if they are right, a change this fast (body \
+         fluid can do it) should be reviewed with a licensed clinician.",
+        iso(s.after),
+        kg_lb(s.kg),
+        if s.kg < 0.0 { "lower" } else { "higher" }
     )
 }
 
@@ -812,13 +828,29 @@ fn compute_trend(
                 .any(|e| (e.after - s.after).num_days().abs() < 7)
         })
     };
-    let step_flag = (!found.is_empty()).then(|| {
-        let severity = if new_step {
+    // A jump in the record's last week is too recent to tell from a few stray readings (and
+    // the outlier screen may leave the new level out), so it is not moved; but a new level of
+    // fluid may be why, and waiting a month for the week to pass is too long: named now, for
+    // a clinician, when the record reaches into the period.
+    let recent = days
+        .last()
+        .filter(|l| l.0 >= from)
+        .and_then(|_| step::recent_step(&as_read, sigma, inflation, &found))
+        .filter(|s| !s.is_unit_change());
+    let mut messages = Vec::new();
+    if !found.is_empty() {
+        messages.push(step_message(&found));
+    }
+    if let Some(r) = &recent {
+        messages.push(recent_step_message(r));
+    }
+    let step_flag = (!messages.is_empty()).then(|| {
+        let severity = if new_step || recent.is_some() {
             FlagSeverity::Clinical
         } else {
             FlagSeverity::Notice
         };
-        (severity, step_message(&found))
+        (severity, messages.join(" "))
     });
     let steps = if !found.is_empty() && movable {
         for d in &mut days {

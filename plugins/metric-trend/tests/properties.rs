@@ -662,10 +662,11 @@ fn a_screen_that_refuses_most_weigh_ins_is_not_used() {
 #[test]
 fn a_step_that_may_be_real_fluid_is_for_a_clinician_in_the_period_it_is_first_found() {
     let wiggle = [0.3, -0.2, 0.1, -0.4, 0.2, 0.0, -0.1];
-    let series = |rise_from: i64| -> Vec<(i64, f64)> {
+    // 6 kg from day `rise_from` on, `per_day` kg a day.
+    let series = |rise_from: i64, per_day: f64| -> Vec<(i64, f64)> {
         (0..150)
             .map(|i| {
-                let rise = (3.0 * (i - rise_from + 1) as f64).clamp(0.0, 6.0);
+                let rise = (per_day * (i - rise_from + 1) as f64).clamp(0.0, 6.0);
                 (i, 100.0 + wiggle[(i % 7) as usize] + rise)
             })
             .collect()
@@ -679,7 +680,7 @@ fn a_step_that_may_be_real_fluid_is_for_a_clinician_in_the_period_it_is_first_fo
         assert!(f.len() <= 1);
         f.first().map(|f| (f.severity, f.message.clone()))
     };
-    let data = participant(&series(60));
+    let data = participant(&series(60, 3.0));
     // Period of days 30-89: the rise on days 60-61 is found and moved, and is for a clinician.
     let now = run_period(&data, 30, 89);
     let t = now.table("weigh_in_steps").unwrap();
@@ -694,12 +695,28 @@ fn a_step_that_may_be_real_fluid_is_for_a_clinician_in_the_period_it_is_first_fo
     let next = run_period(&data, 90, 119);
     assert_eq!(next.table("weigh_in_steps").unwrap().rows.len(), 1);
     assert_eq!(step_flag(&next).unwrap().0, FlagSeverity::Notice);
-    // A rise on days 85-86 has no week after it by day 89: not found in that period, so it is
-    // clinical in the next one, where it is first found.
-    let late = participant(&series(85));
-    assert_eq!(step_flag(&run_period(&late, 60, 89)), None);
+    // A rise on day 86 has no week after it by day 89: no step to move yet, and the outlier
+    // screen left the new level out, so nothing was said until the next period. Now the jump
+    // is named at once, for a clinician, and not moved; and the next period, where the week
+    // has passed, moves it and names it again.
+    let late = participant(&series(86, 6.0));
+    let then = run_period(&late, 60, 89);
+    assert_eq!(then.table("weigh_in_steps").unwrap().rows.len(), 0);
+    let (severity, message) = step_flag(&then).expect("recent jump named");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(
+        message.starts_with(
+            "The last weigh-ins jumped: from 2027-05-26 on they are about 6.0 kg (13.2 lb) \
+             higher than before."
+        ),
+        "{message}"
+    );
+    let next = run_period(&late, 90, 119);
+    assert_eq!(next.table("weigh_in_steps").unwrap().rows.len(), 1);
+    assert_eq!(step_flag(&next).unwrap().0, FlagSeverity::Clinical);
+    // Two days of a new level are not enough to name.
     assert_eq!(
-        step_flag(&run_period(&late, 90, 119)).unwrap().0,
-        FlagSeverity::Clinical
+        step_flag(&run_period(&participant(&series(88, 6.0)), 60, 89)),
+        None
     );
 }
