@@ -482,16 +482,7 @@ fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
     );
 }
 
-fn steps_table(steps: &[step::Step]) -> Table {
-    let rows: Vec<WeighInStepRow> = steps
-        .iter()
-        .map(|s| WeighInStepRow {
-            before: s.before,
-            after: s.after,
-            step_kg: finite(s.kg),
-            se_kg: finite(s.se),
-        })
-        .collect();
+fn steps_table(rows: &[WeighInStepRow]) -> Table {
     Table {
         name: names::WEIGH_IN_STEPS.into(),
         label: WEIGH_IN_STEPS_LABEL.into(),
@@ -852,12 +843,13 @@ fn compute_trend(
         };
         (severity, messages.join(" "))
     });
-    let steps = if !found.is_empty() && movable {
+    let steps: Vec<WeighInStepRow> = if !found.is_empty() && movable {
+        let moved: Vec<WeighInStepRow> = found.iter().map(step::Step::row).collect();
         for d in &mut days {
-            d.1 += step::shift_after(&found, d.0);
+            d.1 += view::step_shift_after(&moved, d.0);
         }
         (obs_t, grid_y, fit, sm) = fit_daily(&days, first, grid_len, settings.outlier_z);
-        found
+        moved
     } else {
         Vec::new()
     };

@@ -31,6 +31,7 @@
 //! taken strongest first, one at a time, and no window reaches across a step already taken;
 //! each size is then estimated again between its neighbours (see [`find_steps`]).
 
+use crate::view::WeighInStepRow;
 use chrono::NaiveDate;
 
 /// Days each side of a boundary that the test reads (two weeks: enough weigh-ins to see a level
@@ -79,6 +80,17 @@ const LB_PER_KG: f64 = 1.0 / 0.453_592_37;
 const UNIT_RATIO_TOLERANCE: f64 = 0.06;
 
 impl Step {
+    /// The step as a row of the `weigh_in_steps` table (what the trend moves the weigh-ins by
+    /// is [`crate::view::step_shift_after`] of such rows).
+    pub fn row(&self) -> WeighInStepRow {
+        WeighInStepRow {
+            before: self.before,
+            after: self.after,
+            step_kg: Some(self.kg).filter(|x| x.is_finite()),
+            se_kg: Some(self.se).filter(|x| x.is_finite()),
+        }
+    }
+
     /// Whether the levels after and before differ by the pound–kilogram factor: readings in
     /// one unit written under the other. Which side is right the weigh-ins cannot say, so such
     /// a step is named, not moved.
@@ -298,15 +310,15 @@ fn median(xs: impl Iterator<Item = f64>) -> Option<f64> {
     })
 }
 
-/// Total of the steps after `day` (kg): what a weigh-in on `day` is moved by to sit on the
-/// level of the latest weigh-ins.
-pub fn shift_after(steps: &[Step], day: NaiveDate) -> f64 {
-    steps.iter().filter(|s| s.before >= day).map(|s| s.kg).sum()
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// What the trend moves a weigh-in on `day` by for `steps`.
+    fn shift_after(steps: &[Step], day: NaiveDate) -> f64 {
+        let rows: Vec<WeighInStepRow> = steps.iter().map(Step::row).collect();
+        crate::view::step_shift_after(&rows, day)
+    }
 
     fn d(i: i64) -> NaiveDate {
         NaiveDate::from_ymd_opt(2026, 3, 1).unwrap() + chrono::Days::new(i as u64)
