@@ -520,6 +520,8 @@ pub fn parse_weights(
     // first weigh-in of the stretch is compared with the right unit, and each later one with
     // corrected values. A stretch at the very start of a file has no earlier reference and is
     // left to the trend's step check, which names it.
+    let mut by_previous: Vec<(usize, Diagnostic)> = Vec::new();
+    let mut from_previous = vec![false; rows.len()];
     let mut recent: Vec<(i64, f64)> = Vec::new();
     for &j in &order {
         let today = day(rows[j].date);
@@ -541,7 +543,8 @@ pub fn parse_weights(
                 if let Some((corrected, diag)) = judge(&rows[j], written[j], med, &basis) {
                     kg[j] = corrected;
                     swapped[j] = true;
-                    diags.push(diag);
+                    from_previous[j] = true;
+                    by_previous.push((j, diag));
                 }
             }
         }
@@ -549,6 +552,24 @@ pub fn parse_weights(
             recent.push((today, kg[j]));
         }
     }
+    // Each conversion above rests on the ones before it, so a stretch that never ends runs to
+    // the end of the file. When it holds more weigh-ins than the file before it, the earlier
+    // level is the odd one out (the first weeks of someone else's weigh-ins, 0.45 times this
+    // person's, turned every later weigh-in of 99 kg into 45 kg): the stretch is left as
+    // written, for the trend's step check to name.
+    let open_end = order
+        .iter()
+        .rev()
+        .take_while(|&&j| from_previous[j])
+        .count();
+    if open_end > rows.len() - open_end {
+        for &j in &order[rows.len() - open_end..] {
+            kg[j] = written[j];
+            from_previous[j] = false;
+        }
+        by_previous.retain(|(r, _)| from_previous[*r]);
+    }
+    diags.extend(by_previous.into_iter().map(|(_, d)| d));
 
     let mut out = Vec::new();
     for (r, kg) in rows.into_iter().zip(kg) {

@@ -87,6 +87,9 @@ pub fn reason(code: &str) -> &'static str {
         "fast_gain" => {
             "Weight going up faster than the program's limit for weeks on end (fluid, or a change of scale?)"
         }
+        "weigh_in_step" => {
+            "Weigh-ins jumped by several kilograms within days and stayed there (a new scale, or a real change of fluid or weight?)"
+        }
         "pregnancy" => "Pregnancy noted in the profile: the report makes no suggestions for change",
         _ => "Raised for review by a licensed clinician",
     }
@@ -433,6 +436,7 @@ mod tests {
             "low_intake",
             "low_bmi",
             "fast_gain",
+            "weigh_in_step",
             "medication_review",
         ] {
             let r = super::reason(code);

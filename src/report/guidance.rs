@@ -50,9 +50,12 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 7] = [
+pub const HOLDING_FLAGS: [&str; 8] = [
     "fast_loss",
     "fast_gain",
+    // Clinical only in the period a step in the weigh-ins is first found: it may be a real
+    // change of fluid or weight that the figures now leave out.
+    "weigh_in_step",
     "very_low_intake",
     "low_intake",
     "low_bmi",

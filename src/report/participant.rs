@@ -723,18 +723,36 @@ fn weight_chart(
         !spans.is_empty(),
         target_kg.is_some(),
     );
-    // A step the trend left out: the earlier dots sit off the line by its size; say why.
-    if let Some(last) = v.trend.as_ref().and_then(|t| t.weigh_in_steps.last()) {
-        let shift = v.trend.as_ref().map_or(0.0, |t| {
-            cohortpress_metric_trend::view::step_shift_after(&t.weigh_in_steps, last.before)
-        });
-        alt.push_str(&format!(
-            " The weigh-ins up to {} sit {} {} the trend line: it counts them on the level of \
-             the later weigh-ins (see the points to note).",
-            fmt::date(last.before),
-            fmt::weight(shift.abs(), units),
-            if shift < 0.0 { "above" } else { "below" }
-        ));
+    // Steps the trend left out: the dots before each sit off the line by the steps after them
+    // (with a scale put back, those before the first step sit on it); say where and why.
+    if let Some(t) = v.trend.as_ref().filter(|t| !t.weigh_in_steps.is_empty()) {
+        let steps = &t.weigh_in_steps;
+        let mut spans = Vec::new();
+        for (k, s) in steps.iter().enumerate() {
+            let shift = cohortpress_metric_trend::view::step_shift_after(steps, s.before);
+            // Less than half a kilogram is within the day-to-day scatter of the dots (program
+            // choice): steps that cancel, measured a little apart, are not named.
+            if shift.abs() < 0.5 {
+                continue;
+            }
+            let side = if shift < 0.0 { "above" } else { "below" };
+            let off = format!("{} {side} the trend line", fmt::weight(shift.abs(), units));
+            spans.push(match k.checked_sub(1).map(|p| steps[p].after) {
+                None => format!("up to {} sit {off}", fmt::date(s.before)),
+                Some(from) => format!(
+                    "from {} to {} sit {off}",
+                    fmt::date(from),
+                    fmt::date(s.before)
+                ),
+            });
+        }
+        if !spans.is_empty() {
+            alt.push_str(&format!(
+                " The weigh-ins {}: it counts them on the level of the later weigh-ins (see the \
+                 points to note).",
+                spans.join(", and those ")
+            ));
+        }
     }
     let chart = Chart::Line(LineChart {
         title: "Weight".into(),

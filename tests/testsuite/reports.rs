@@ -1341,48 +1341,8 @@ fn template_escaping_drops_invisible_direction_characters() {
 /// within 1 kg.
 #[test]
 fn a_step_in_the_weigh_ins_is_named_and_left_out_of_the_figures() {
-    // (report HTML, the participant's row of metrics/participants.csv by column name)
-    let run = |step: f64| -> (String, std::collections::HashMap<String, String>) {
-        let prog = ProgramTest::fixture("report-small");
-        let p = prog.dir.join("participants/SG-007");
-        let start = chrono::NaiveDate::from_ymd_opt(2026, 6, 1).unwrap();
-        let jump = chrono::NaiveDate::from_ymd_opt(2026, 9, 12).unwrap();
-        let mut w = String::from("date,weight,unit\n");
-        let mut intake = String::from("date,kcal\n");
-        for i in 0..=121_i64 {
-            let day = start + chrono::Duration::days(i);
-            let wiggle = [0.3, -0.2, 0.1, -0.4, 0.2, 0.0, -0.1][(i % 7) as usize];
-            let kg = 95.0 - 0.07 * i as f64 + wiggle + if day >= jump { step } else { 0.0 };
-            w.push_str(&format!("{day},{kg:.1},kg\n"));
-            intake.push_str(&format!("{day},1900\n"));
-        }
-        std::fs::write(p.join("weights.csv"), w).unwrap();
-        std::fs::write(p.join("intake.csv"), intake).unwrap();
-        let out = prog.run(&[
-            "run",
-            "{dir}",
-            "--only",
-            "SG-007",
-            "--period",
-            "2026-09",
-            "--as-of",
-            "2026-10-01",
-            "--out",
-            "{dir}/o",
-        ]);
-        assert!(out.code <= 1, "{}", out.stderr);
-        let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-007.html")).unwrap();
-        let csv = std::fs::read_to_string(prog.dir.join("o/metrics/participants.csv")).unwrap();
-        let mut lines = csv.lines();
-        let head: Vec<&str> = lines.next().unwrap().split(',').collect();
-        let row: Vec<&str> = lines.next().unwrap().split(',').collect();
-        let cols = head
-            .iter()
-            .zip(row)
-            .map(|(h, v)| (h.to_string(), v.to_string()))
-            .collect();
-        (html, cols)
-    };
+    let jump = chrono::NaiveDate::from_ymd_opt(2026, 9, 12).unwrap();
+    let run = |step: f64| sg007_september(&|day| if day >= jump { step } else { 0.0 });
     let num = |m: &std::collections::HashMap<String, String>, k: &str| -> f64 {
         m[k].parse().unwrap_or_else(|_| panic!("{k}: {:?}", m[k]))
     };
@@ -1398,6 +1358,10 @@ fn a_step_in_the_weigh_ins_is_named_and_left_out_of_the_figures() {
     for html in [&plain, &stepped] {
         assert!(!html.contains("came down faster than"), "fast-loss alert");
     }
+    // The step may be real (fluid, surgery): with the fast flags quiet, the step itself goes
+    // on the clinician's list in the period in which it is first found.
+    assert_eq!(plain_m["clinical_flags"], "");
+    assert_eq!(stepped_m["clinical_flags"], "weigh_in_step");
     // The pace is the person's 0.49 kg a week, not the step spread over the month.
     for m in [&plain_m, &stepped_m] {
         let rate = num(m, "outcomes.rate_kg_per_week");
@@ -1418,4 +1382,82 @@ fn a_step_in_the_weigh_ins_is_named_and_left_out_of_the_figures() {
         implied(&plain_m),
         implied(&stepped_m)
     );
+}
+
+/// SG-007 of `report-small` losing 0.07 kg a day from 95 kg (June to September 2026, daily
+/// weigh-ins and food logs) with `extra(day)` kg added to each weigh-in, reported for
+/// September: (report HTML, the participant's row of metrics/participants.csv by column name).
+fn sg007_september(
+    extra: &dyn Fn(chrono::NaiveDate) -> f64,
+) -> (String, std::collections::HashMap<String, String>) {
+    let prog = ProgramTest::fixture("report-small");
+    let p = prog.dir.join("participants/SG-007");
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 6, 1).unwrap();
+    let mut w = String::from("date,weight,unit\n");
+    let mut intake = String::from("date,kcal\n");
+    for i in 0..=121_i64 {
+        let day = start + chrono::Duration::days(i);
+        let wiggle = [0.3, -0.2, 0.1, -0.4, 0.2, 0.0, -0.1][(i % 7) as usize];
+        let kg = 95.0 - 0.07 * i as f64 + wiggle + extra(day);
+        w.push_str(&format!("{day},{kg:.1},kg\n"));
+        intake.push_str(&format!("{day},1900\n"));
+    }
+    std::fs::write(p.join("weights.csv"), w).unwrap();
+    std::fs::write(p.join("intake.csv"), intake).unwrap();
+    let out = prog.run(&[
+        "run",
+        "{dir}",
+        "--only",
+        "SG-007",
+        "--period",
+        "2026-09",
+        "--as-of",
+        "2026-10-01",
+        "--out",
+        "{dir}/o",
+    ]);
+    assert!(out.code <= 1, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("o/participants/SG-007.html")).unwrap();
+    let csv = std::fs::read_to_string(prog.dir.join("o/metrics/participants.csv")).unwrap();
+    let mut lines = csv.lines();
+    let head: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let row: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let cols = head
+        .iter()
+        .zip(row)
+        .map(|(h, v)| (h.to_string(), v.to_string()))
+        .collect();
+    (html, cols)
+}
+
+/// Another scale for two weeks (20 Aug to 2 Sep, 6 kg heavier), then the usual one again. The
+/// chart's caption said the weigh-ins "up to 2 Sep sit 6.0 kg above the trend line", true only
+/// of the two weeks: those before them sit on it. It names each stretch now; the change since
+/// the start is the person's own.
+#[test]
+fn a_scale_put_back_is_described_stretch_by_stretch() {
+    let from = chrono::NaiveDate::from_ymd_opt(2026, 8, 20).unwrap();
+    let back = chrono::NaiveDate::from_ymd_opt(2026, 9, 3).unwrap();
+    let (plain, plain_m) = sg007_september(&|_| 0.0);
+    let (html, m) = sg007_september(&|d| if d >= from && d < back { 6.0 } else { 0.0 });
+    assert!(!plain.contains("sit "));
+    assert!(
+        html.contains(
+            "The weigh-ins from 20 Aug 2026 to 2 Sep 2026 sit 6.1 kg above the trend line: it \
+             counts them"
+        ),
+        "{html:.8000}"
+    );
+    assert!(!html.contains("The weigh-ins up to"));
+    let change = |m: &std::collections::HashMap<String, String>| -> f64 {
+        m["outcomes.change_kg"].parse().unwrap()
+    };
+    assert!(
+        (change(&m) - change(&plain_m)).abs() < 0.5,
+        "{} vs {}",
+        change(&m),
+        change(&plain_m)
+    );
+    // The return is a new step in September: for the clinician.
+    assert_eq!(m["clinical_flags"], "weigh_in_step");
 }

@@ -10,7 +10,10 @@
 //!
 //! * **Baseline weight** is the first weigh-in on or after enrolment
 //!   ([`ParticipantData::baseline_weight`]); when there are several weigh-ins on that day, their
-//!   mean. Only weigh-ins up to `period.to` are used.
+//!   mean, moved by the steps in the weigh-ins that the trend found after it (its
+//!   `weigh_in_steps` table: another scale, or a real jump of fluid or weight, which the trend's
+//!   `weigh_in_step` flag puts before a clinician), so that the change since the start is
+//!   counted on the trend's level. Only weigh-ins up to `period.to` are used.
 //! * **Current weight** is the `trend` module's `current_weight_kg` (with its interval); without
 //!   a trend output it is the mean of the weigh-ins on the last weigh-in day up to `period.to`.
 //! * **Trend levels** (milestones, largest loss, fast-loss flag) come from the `trend` module's

@@ -328,7 +328,12 @@ impl MetricModule for TrendModule {
         ctx: &ModuleContext,
         data: &ParticipantData,
     ) -> Result<ModuleOutput, ModuleError> {
-        Ok(compute_trend(&Settings::from_ctx(ctx), ctx.period.to, data))
+        Ok(compute_trend(
+            &Settings::from_ctx(ctx),
+            ctx.period.from,
+            ctx.period.to,
+            data,
+        ))
     }
 }
 
@@ -477,16 +482,7 @@ fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
     );
 }
 
-fn steps_table(steps: &[step::Step]) -> Table {
-    let rows: Vec<WeighInStepRow> = steps
-        .iter()
-        .map(|s| WeighInStepRow {
-            before: s.before,
-            after: s.after,
-            step_kg: finite(s.kg),
-            se_kg: finite(s.se),
-        })
-        .collect();
+fn steps_table(rows: &[WeighInStepRow]) -> Table {
     Table {
         name: names::WEIGH_IN_STEPS.into(),
         label: WEIGH_IN_STEPS_LABEL.into(),
@@ -495,15 +491,17 @@ fn steps_table(steps: &[step::Step]) -> Table {
     }
 }
 
+/// `|kg|` in kilograms and pounds, one decimal: "6.0 kg (13.2 lb)".
+fn kg_lb(kg: f64) -> String {
+    format!(
+        "{:.1} kg ({:.1} lb)",
+        kg.abs(),
+        cohortpress_metric_api::units::Mass::from_kg(kg.abs()).lb()
+    )
+}
+
 /// The `weigh_in_step` flag's message for the steps found (`found`, in date order).
 fn step_message(found: &[step::Step]) -> String {
-    let kg_lb = |kg: f64| {
-        format!(
-            "{:.1} kg ({:.1} lb)",
-            kg.abs(),
-            cohortpress_metric_api::units::Mass::from_kg(kg.abs()).lb()
-        )
-    };
     let one = |s: &step::Step| {
         format!(
             "between {} and {} they went {} by about {}",
@@ -534,17 +532,33 @@ fn step_message(found: &[step::Step]) -> String {
     }
     let list: Vec<String> = found.iter().map(one).collect();
     format!(
-        "The weigh-ins jumped and stayed there: {}. Body weight does not change that fast; a \
-         different scale, clothes, a unit or typing mistake, or a shift of body fluid is more \
-         likely. The trend, the weight change and the energy figures leave the jump out (the \
-         earlier weigh-ins are counted on the level of the later ones); please check the \
-         weigh-ins around {}.",
+        "The weigh-ins jumped and stayed there: {}. Body fat does not change that fast: a \
+         different scale, clothes, or a unit or typing mistake is likely, but body fluid can \
+         (building up, or passed with water tablets), and so can weight after surgery or \
+         childbirth. The trend, the weight change and the energy figures leave the jump out \
+         (the earlier weigh-ins are counted on the level of the later ones); please check the \
+         weigh-ins around {}, and if they are right, review the change with a licensed \
+         clinician.",
         list.join("; "),
         if found.len() == 1 {
             "that day"
         } else {
             "those days"
         }
+    )
+}
+
+/// The `weigh_in_step` flag's message for a jump in the record's last week (see
+/// [`step::recent_step`]).
+fn recent_step_message(s: &step::Step) -> String {
+    format!(
+        "The last weigh-ins jumped: from {} on they are about {} {} than before. That is \
+         too recent to tell a new level from a few stray readings, and the trend may leave \
+         them out for now. Please check them; if they are right, a change this fast (body \
+         fluid can do it) should be reviewed with a licensed clinician.",
+        iso(s.after),
+        kg_lb(s.kg),
+        if s.kg < 0.0 { "lower" } else { "higher" }
     )
 }
 
@@ -722,8 +736,13 @@ fn fit_daily(
     (obs_t, grid_y, fit, rts_smoother(run))
 }
 
-/// The whole module computation; `to` is the period end (no data after it are used).
-fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> ModuleOutput {
+/// The whole module computation for the period `from`..=`to` (no data after `to` are used).
+fn compute_trend(
+    settings: &Settings,
+    from: NaiveDate,
+    to: NaiveDate,
+    data: &ParticipantData,
+) -> ModuleOutput {
     let mut out = ModuleOutput::default();
     let offsets = source_offsets(data, to, settings.outlier_z);
     let mut days = daily_means(data, to, &|_| true, &offsets);
@@ -774,19 +793,63 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     // the trend is fitted again with the weigh-ins before each step moved onto the level after
     // it, so the step is not read as tissue (see `step`). Too many steps are a mix of scales:
     // flagged, not moved.
-    let found = step::find_steps(
-        &days.iter().map(|d| (d.0, d.1)).collect::<Vec<_>>(),
+    let as_read: Vec<(NaiveDate, f64)> = days.iter().map(|d| (d.0, d.1)).collect();
+    let (sigma, inflation) = (
         fit.params.sigma2_eps.sqrt(),
         correlated_scatter_inflation(&sm),
     );
-    let step_flag = (!found.is_empty()).then(|| step_message(&found));
+    let found = step::find_steps(&as_read, sigma, inflation);
     let movable = found.len() <= step::MAX_STEPS && !found.iter().any(step::Step::is_unit_change);
-    let steps = if !found.is_empty() && movable {
+    // The weigh-ins cannot tell a new scale from a real change: fluid building up (heart or
+    // kidney failure) or passed with water tablets, surgery, childbirth. Moved, a step no
+    // longer reaches the fast-loss and fast-gain flags that would have put it before a
+    // clinician, so the step flag does: clinical in the report of the period in which the step
+    // is first found (the weigh-ins before the period did not show it), a notice after that,
+    // as the fast flags are raised once for a spell. A step that is not moved stays in the
+    // trend, where those flags judge it.
+    let new_step = movable && {
+        let before_period: Vec<(NaiveDate, f64)> =
+            as_read.iter().copied().filter(|d| d.0 < from).collect();
+        let earlier = step::find_steps(&before_period, sigma, inflation);
+        // The same step, found on fewer weigh-ins, may sit a day or two off; two steps are at
+        // least 8 days apart (each level kept a week).
+        found.iter().any(|s| {
+            !earlier
+                .iter()
+                .any(|e| (e.after - s.after).num_days().abs() < 7)
+        })
+    };
+    // A jump in the record's last week is too recent to tell from a few stray readings (and
+    // the outlier screen may leave the new level out), so it is not moved; but a new level of
+    // fluid may be why, and waiting a month for the week to pass is too long: named now, for
+    // a clinician, when the record reaches into the period.
+    let recent = days
+        .last()
+        .filter(|l| l.0 >= from)
+        .and_then(|_| step::recent_step(&as_read, sigma, inflation, &found))
+        .filter(|s| !s.is_unit_change());
+    let mut messages = Vec::new();
+    if !found.is_empty() {
+        messages.push(step_message(&found));
+    }
+    if let Some(r) = &recent {
+        messages.push(recent_step_message(r));
+    }
+    let step_flag = (!messages.is_empty()).then(|| {
+        let severity = if new_step || recent.is_some() {
+            FlagSeverity::Clinical
+        } else {
+            FlagSeverity::Notice
+        };
+        (severity, messages.join(" "))
+    });
+    let steps: Vec<WeighInStepRow> = if !found.is_empty() && movable {
+        let moved: Vec<WeighInStepRow> = found.iter().map(step::Step::row).collect();
         for d in &mut days {
-            d.1 += step::shift_after(&found, d.0);
+            d.1 += view::step_shift_after(&moved, d.0);
         }
         (obs_t, grid_y, fit, sm) = fit_daily(&days, first, grid_len, settings.outlier_z);
-        found
+        moved
     } else {
         Vec::new()
     };
@@ -898,12 +961,8 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
     out.tables.push(periods_table(&rows));
     out.tables.push(offsets_table(&offsets));
     out.tables.push(steps_table(&steps));
-    if let Some(message) = step_flag {
-        out.push_flag(
-            TrendFlag::WeighInStep.as_str(),
-            FlagSeverity::Notice,
-            message,
-        );
+    if let Some((severity, message)) = step_flag {
+        out.push_flag(TrendFlag::WeighInStep.as_str(), severity, message);
     }
 
     // Scalars.

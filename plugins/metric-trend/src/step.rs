@@ -18,15 +18,20 @@
 //! line partialled out, Frisch–Waugh), times the trend's inflation for day-to-day correlated
 //! scatter. The jump must also show in robust levels and last: the median of the three
 //! weigh-in days after the boundary minus the median of the three before must reach
-//! [`MIN_STEP_KG`] too, and the weigh-ins a week or more after it must still sit at least half
-//! of that away from the level before (a week-long fluid excursion returns). The scatter SD is the larger of the local fit's residual SD and the trend model's
-//! σ_ε for the whole record: six weigh-ins fit three parameters almost exactly, and a
-//! week-long excursion of correlated scatter fits the shift, so the local residuals alone
-//! understate the noise (on the project's simulator, with no steps in the truth, they called
-//! a step for one person in twenty). A boundary is a step when |δ| ≥ [`MIN_STEP_KG`] and |δ|/SE ≥ [`MIN_Z`]. Steps are
-//! taken strongest first; a boundary within [`SIDE_DAYS`] days of a step already taken is not
-//! tested again (its windows hold that step).
+//! [`MIN_STEP_KG`] too, the weigh-ins a week or more after it must still sit at least half of
+//! that away from the level before (a week-long fluid excursion returns), and the weigh-ins a
+//! week or more before it at least half of that away from the level after, unless the record
+//! starts within that week (the end of a short excursion is no step either: moved, it would
+//! shift the whole record before it). The scatter
+//! SD is the larger of the local fit's residual SD and the trend model's σ_ε for the whole
+//! record: six weigh-ins fit three parameters almost exactly, and a week-long excursion of
+//! correlated scatter fits the shift, so the local residuals alone understate the noise (on the
+//! project's simulator, with no steps in the truth, they called a step for one person in
+//! twenty). A boundary is a step when |δ| ≥ [`MIN_STEP_KG`] and |δ|/SE ≥ [`MIN_Z`]. Steps are
+//! taken strongest first, one at a time, and no window reaches across a step already taken;
+//! each size is then estimated again between its neighbours (see [`find_steps`]).
 
+use crate::view::WeighInStepRow;
 use chrono::NaiveDate;
 
 /// Days each side of a boundary that the test reads (two weeks: enough weigh-ins to see a level
@@ -75,6 +80,17 @@ const LB_PER_KG: f64 = 1.0 / 0.453_592_37;
 const UNIT_RATIO_TOLERANCE: f64 = 0.06;
 
 impl Step {
+    /// The step as a row of the `weigh_in_steps` table (what the trend moves the weigh-ins by
+    /// is [`crate::view::step_shift_after`] of such rows).
+    pub fn row(&self) -> WeighInStepRow {
+        WeighInStepRow {
+            before: self.before,
+            after: self.after,
+            step_kg: Some(self.kg).filter(|x| x.is_finite()),
+            se_kg: Some(self.se).filter(|x| x.is_finite()),
+        }
+    }
+
     /// Whether the levels after and before differ by the pound–kilogram factor: readings in
     /// one unit written under the other. Which side is right the weigh-ins cannot say, so such
     /// a step is named, not moved.
@@ -89,45 +105,114 @@ impl Step {
 /// The steps in daily mean weigh-ins `days` (date, kg), sorted by date, with `sigma` the trend
 /// model's scatter SD (kg) and `inflation` its correlated-scatter factor on standard errors.
 /// Returns them in date order.
+///
+/// Steps are taken strongest first, one at a time, and no test window reaches across a step
+/// already taken: the boundaries next to a step (the same jump spread over two days) then have
+/// too few weigh-ins on one side to be tested, and a second step a week or two away (a scale
+/// used for ten days, then put back) is tested on the level between the two. Finally each
+/// step's size is estimated again between its neighbours. With windows that crossed another
+/// step, a scale put back after 8 to 14 days gave one step of the wrong size, or only one of
+/// the two: every weigh-in before the first was moved by 6-8 kg, and the change since the
+/// start showed a loss or gain that never happened.
 pub fn find_steps(days: &[(NaiveDate, f64)], sigma: f64, inflation: f64) -> Vec<Step> {
-    let mut candidates: Vec<Step> = days
-        .windows(2)
-        .enumerate()
-        .filter(|(_, w)| (w[1].0 - w[0].0).num_days() <= MAX_GAP_DAYS)
-        .filter_map(|(i, w)| test_boundary(days, i, w[0].0, w[1].0, sigma, inflation))
-        .filter(|s| s.kg.abs() >= MIN_STEP_KG && s.kg.abs() >= MIN_Z * s.se)
-        .collect();
-    candidates.sort_by(|a, b| {
-        let za = a.kg.abs() / a.se.max(f64::MIN_POSITIVE);
-        let zb = b.kg.abs() / b.se.max(f64::MIN_POSITIVE);
-        zb.total_cmp(&za)
-    });
+    let passes = |s: &Step| s.kg.abs() >= MIN_STEP_KG && s.kg.abs() >= MIN_Z * s.se;
+    let z = |s: &Step| s.kg.abs() / s.se.max(f64::MIN_POSITIVE);
     let mut taken: Vec<Step> = Vec::new();
-    for c in candidates {
-        let near = taken
-            .iter()
-            .any(|t| (c.after - t.after).num_days().abs() <= SIDE_DAYS);
-        if !near {
-            taken.push(c);
+    loop {
+        let strongest = days
+            .windows(2)
+            .enumerate()
+            .filter(|(_, w)| (w[1].0 - w[0].0).num_days() <= MAX_GAP_DAYS)
+            .filter(|(_, w)| taken.iter().all(|t| t.after != w[1].0))
+            .filter_map(|(i, w)| {
+                let (floor, ceiling) = between(&taken, w[1].0);
+                test_boundary(days, i, floor, ceiling, sigma, inflation, false)
+            })
+            .filter(passes)
+            .max_by(|a, b| z(a).total_cmp(&z(b)));
+        match strongest {
+            Some(s) => taken.push(s),
+            None => break,
         }
     }
     taken.sort_by_key(|s| s.after);
-    taken
+    // Each size again, on the weigh-ins between its neighbours only (a step taken before its
+    // neighbour was measured across it).
+    let sized: Vec<Step> = taken
+        .iter()
+        .map(|t| {
+            let others: Vec<Step> = taken
+                .iter()
+                .filter(|o| o.after != t.after)
+                .copied()
+                .collect();
+            let (floor, ceiling) = between(&others, t.after);
+            let i = days.partition_point(|d| d.0 < t.after) - 1;
+            test_boundary(days, i, floor, ceiling, sigma, inflation, false).unwrap_or(*t)
+        })
+        .collect();
+    sized
 }
 
-/// The shift test at the boundary between `days[i]` (`d1`) and `days[i + 1]` (`d2`).
+/// A jump in the record's last week that every weigh-in since has kept (at least
+/// [`MIN_PER_SIDE`] days of them), too recent for [`find_steps`], which waits a week to see the
+/// new level kept; the steps already found are `taken`. The same test otherwise, with the
+/// weigh-ins since the jump standing for the week after. Such a jump is not moved (it may
+/// still go back), but it is named: the trend's outlier screen tends to leave the last days of
+/// a sudden new level out as stray readings, and a 6 kg rise of fluid in the month's last days
+/// went unsaid until the next month's report.
+pub fn recent_step(
+    days: &[(NaiveDate, f64)],
+    sigma: f64,
+    inflation: f64,
+    taken: &[Step],
+) -> Option<Step> {
+    let last = days.last()?.0;
+    days.windows(2)
+        .enumerate()
+        .filter(|(_, w)| (w[1].0 - w[0].0).num_days() <= MAX_GAP_DAYS)
+        .filter(|(_, w)| (last - w[1].0).num_days() < 7)
+        .filter_map(|(i, w)| {
+            let (floor, _) = between(taken, w[1].0);
+            test_boundary(days, i, floor, None, sigma, inflation, true)
+        })
+        .filter(|s| s.kg.abs() >= MIN_STEP_KG && s.kg.abs() >= MIN_Z * s.se)
+        .max_by(|a, b| (a.kg.abs() / a.se).total_cmp(&(b.kg.abs() / b.se)))
+}
+
+/// The weigh-in days a boundary whose later day is `after` may read, given the steps taken:
+/// from the first day after the last step before it (inclusive), up to the first day after the
+/// next step (exclusive).
+fn between(taken: &[Step], after: NaiveDate) -> (Option<NaiveDate>, Option<NaiveDate>) {
+    let floor = taken.iter().map(|t| t.after).filter(|&a| a < after).max();
+    let ceiling = taken.iter().map(|t| t.after).filter(|&a| a > after).min();
+    (floor, ceiling)
+}
+
+/// The shift test at the boundary between `days[i]` and `days[i + 1]`, reading no weigh-in
+/// before `floor` or on or after `ceiling`. With `open_end`, all the weigh-ins after the
+/// boundary show whether the new level is kept (see [`recent_step`]), else those a week or
+/// more after it.
 fn test_boundary(
     days: &[(NaiveDate, f64)],
     i: usize,
-    d1: NaiveDate,
-    d2: NaiveDate,
+    floor: Option<NaiveDate>,
+    ceiling: Option<NaiveDate>,
     sigma: f64,
     inflation: f64,
+    open_end: bool,
 ) -> Option<Step> {
+    let (d1, d2) = (days[i].0, days[i + 1].0);
     let lo = d1 - chrono::Days::new(SIDE_DAYS as u64 - 1);
     let hi = d2 + chrono::Days::new(SIDE_DAYS as u64 - 1);
-    let before: Vec<&(NaiveDate, f64)> = days[..=i].iter().filter(|d| d.0 >= lo).collect();
-    let after: Vec<&(NaiveDate, f64)> = days[i + 1..].iter().filter(|d| d.0 <= hi).collect();
+    let before: Vec<&(NaiveDate, f64)> = days[..=i]
+        .iter()
+        .filter(|d| d.0 >= lo && floor.is_none_or(|f| d.0 >= f))
+        .collect();
+    let after: Vec<&(NaiveDate, f64)> = days[i + 1..]
+        .iter()
+        .filter(|d| d.0 <= hi && ceiling.is_none_or(|c| d.0 < c))
+        .collect();
     if before.len() < MIN_PER_SIDE || after.len() < MIN_PER_SIDE {
         return None;
     }
@@ -158,18 +243,35 @@ fn test_boundary(
     if sdd <= 1e-12 {
         return None;
     }
-    // Robust levels next to the boundary, and what the weigh-ins a week on still show.
+    // Robust levels next to the boundary, what the weigh-ins a week on still show ...
     let near_before = median(before.iter().rev().take(MIN_PER_SIDE).map(|d| d.1));
     let near_after = median(after.iter().take(MIN_PER_SIDE).map(|d| d.1));
     let late_after = median(
         after
             .iter()
-            .filter(|d| (d.0 - d2).num_days() >= 7)
+            .filter(|d| open_end || (d.0 - d2).num_days() >= 7)
+            .map(|d| d.1),
+    );
+    // ... and what the weigh-ins a week or more before it showed: the level left must have been
+    // kept too, or the step is the return of a short excursion (a scale used for a few days),
+    // and moving every earlier weigh-in by it would shift the whole record.
+    let early_before = median(
+        before
+            .iter()
+            .filter(|d| (d1 - d.0).num_days() >= 7)
             .map(|d| d.1),
     );
     let near = near_after? - near_before?;
     let late = late_after? - near_before?;
-    if near.abs() < MIN_STEP_KG || late * near <= 0.0 || late.abs() < 0.5 * MIN_STEP_KG {
+    let kept = |x: f64| x * near > 0.0 && x.abs() >= 0.5 * MIN_STEP_KG;
+    // Within the record's first week there is nothing before the level left (a first week on
+    // another scale, or in pounds): only then may the week before be missing.
+    let record_start = floor.is_none() && before.first().map(|d| d.0) == days.first().map(|d| d.0);
+    let early_kept = match early_before {
+        Some(e) => kept(near_after? - e),
+        None => record_start,
+    };
+    if near.abs() < MIN_STEP_KG || !kept(late) || !early_kept {
         return None;
     }
     let delta = rd.iter().zip(&ry).map(|(d, y)| d * y).sum::<f64>() / sdd;
@@ -208,15 +310,15 @@ fn median(xs: impl Iterator<Item = f64>) -> Option<f64> {
     })
 }
 
-/// Total of the steps after `day` (kg): what a weigh-in on `day` is moved by to sit on the
-/// level of the latest weigh-ins.
-pub fn shift_after(steps: &[Step], day: NaiveDate) -> f64 {
-    steps.iter().filter(|s| s.before >= day).map(|s| s.kg).sum()
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// What the trend moves a weigh-in on `day` by for `steps`.
+    fn shift_after(steps: &[Step], day: NaiveDate) -> f64 {
+        let rows: Vec<WeighInStepRow> = steps.iter().map(Step::row).collect();
+        crate::view::step_shift_after(&rows, day)
+    }
 
     fn d(i: i64) -> NaiveDate {
         NaiveDate::from_ymd_opt(2026, 3, 1).unwrap() + chrono::Days::new(i as u64)
@@ -259,6 +361,46 @@ mod tests {
         assert!(steps[0].is_unit_change(), "{:?}", steps[0]);
     }
 
+    /// A drop in the record's last days: too recent for `find_steps`, named by `recent_step`
+    /// once three weigh-in days keep it, with its size.
+    #[test]
+    fn a_drop_in_the_last_days_is_a_recent_step_once_three_days_keep_it() {
+        let series = |from: i64| -> Vec<(NaiveDate, f64)> {
+            (0..60)
+                .map(|i| {
+                    (
+                        d(i),
+                        90.0 + wiggle(i, 0.3) - if i >= from { 6.0 } else { 0.0 },
+                    )
+                })
+                .collect()
+        };
+        let days = series(55);
+        assert_eq!(find_steps(&days, 0.3, 1.0), vec![]);
+        let r = recent_step(&days, 0.3, 1.0, &[]).expect("recent step");
+        assert_eq!((r.before, r.after), (d(54), d(55)));
+        assert!((r.kg + 6.0).abs() < 0.4, "{r:?}");
+        assert_eq!(recent_step(&series(58), 0.3, 1.0, &[]), None);
+        assert_eq!(recent_step(&series(100), 0.3, 1.0, &[]), None);
+    }
+
+    /// The first five days in pounds under kg (the unit check of the weigh-in files has no
+    /// earlier weigh-in to compare them with): named as a change of unit. Requiring the level
+    /// before a step to have been kept for a week had lost it (there is no week before).
+    #[test]
+    fn pounds_in_the_records_first_days_are_a_unit_change() {
+        let days: Vec<(NaiveDate, f64)> = (0..60)
+            .map(|i| {
+                let kg = 80.0 - 0.05 * i as f64 + wiggle(i, 0.4);
+                (d(i), if i < 5 { kg * LB_PER_KG } else { kg })
+            })
+            .collect();
+        let steps = find_steps(&days, 0.4, 1.0);
+        assert_eq!(steps.len(), 1, "{steps:?}");
+        assert_eq!((steps[0].before, steps[0].after), (d(4), d(5)));
+        assert!(steps[0].is_unit_change(), "{:?}", steps[0]);
+    }
+
     #[test]
     fn a_fast_but_smooth_loss_and_ordinary_scatter_are_no_step() {
         // 2 kg of glycogen and water over the first week, then 0.1 kg a day, ±0.9 kg scatter.
@@ -294,5 +436,41 @@ mod tests {
             .map(|i| (d(i), 90.0 + if (30..35).contains(&i) { 6.0 } else { 0.0 }))
             .collect();
         assert!(find_steps(&excursion, 0.3, 1.0).is_empty());
+    }
+
+    /// 6 kg up on day 40 (another scale), back on day 40 + `days`.
+    fn put_back_after(days: i64) -> Vec<(NaiveDate, f64)> {
+        let w = [0.3, -0.2, 0.1, -0.4, 0.2, 0.0, -0.1];
+        (0..100)
+            .map(|i| {
+                let other = (40..40 + days).contains(&i);
+                (
+                    d(i),
+                    90.0 + w[(i % 7) as usize] + if other { 6.0 } else { 0.0 },
+                )
+            })
+            .collect()
+    }
+
+    /// A scale used for 8 to 14 days and then put back. With windows reaching across the other
+    /// jump, 8 days gave one step of -7.8 kg on the day it was put back (every weigh-in before,
+    /// right ones included, moved 7.8 kg down: a gain of 7.8 kg since the start), and 14 days
+    /// gave only the +6 kg step (every weigh-in before moved up: a loss of 6 kg since the start).
+    #[test]
+    fn a_scale_put_back_after_days_moves_only_the_readings_in_between() {
+        // 8 days: the level before the return was not kept for a week; no step.
+        assert_eq!(find_steps(&put_back_after(8), 0.3, 1.0), vec![]);
+        for days in [12, 14, 20] {
+            let steps = find_steps(&put_back_after(days), 0.3, 1.0);
+            let found: Vec<(NaiveDate, f64)> = steps.iter().map(|s| (s.after, s.kg)).collect();
+            assert_eq!(steps.len(), 2, "{days}: {found:?}");
+            assert_eq!((steps[0].after, steps[1].after), (d(40), d(40 + days)));
+            assert!((steps[0].kg - 6.0).abs() < 0.3, "{days}: {found:?}");
+            assert!((steps[1].kg + 6.0).abs() < 0.3, "{days}: {found:?}");
+            // The right readings before the first step stay where they are; those in between
+            // move down by about 6 kg.
+            assert!(shift_after(&steps, d(10)).abs() < 0.3, "{days}: {found:?}");
+            assert!((shift_after(&steps, d(45)) + 6.0).abs() < 0.3);
+        }
     }
 }

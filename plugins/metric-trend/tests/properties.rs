@@ -4,8 +4,8 @@
 use chrono::NaiveDate;
 use cohortpress_metric_api::units::{Length, Mass};
 use cohortpress_metric_api::{
-    Cell, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData, Period, Profile,
-    ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
+    Cell, FlagSeverity, IntakeDay, MetricModule, ModuleContext, ModuleOutput, ParticipantData,
+    Period, Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
 };
 use cohortpress_metric_trend::TrendModule;
 use std::collections::BTreeMap;
@@ -77,6 +77,11 @@ fn run(weights: &[(i64, f64)], to: i64) -> ModuleOutput {
 }
 
 fn run_data(data: &ParticipantData, to: i64) -> ModuleOutput {
+    run_period(data, 0, to)
+}
+
+/// The module on `data` for the period of days `from`..=`to`.
+fn run_period(data: &ParticipantData, from: i64, to: i64) -> ModuleOutput {
     let module = TrendModule;
     let settings = module
         .spec()
@@ -92,7 +97,7 @@ fn run_data(data: &ParticipantData, to: i64) -> ModuleOutput {
             targets: Targets::default(),
         },
         period: Period {
-            from: day0(),
+            from: day(from),
             to: day(to),
         },
         as_of: day(to),
@@ -646,4 +651,72 @@ fn a_screen_that_refuses_most_weigh_ins_is_not_used() {
     many[20].1 = 99.0;
     let out = run(&many, 40);
     assert_eq!(out.scalar("outliers_ignored"), Some(1.0));
+}
+
+/// Six kilograms of fluid within two days, kept (heart failure, say): the step test cannot
+/// tell it from a new scale, and once the step was moved out of the trend, the fast-gain flag
+/// that used to put such a rise before a clinician was gone and the only word left was a
+/// notice saying body weight does not change that fast. The step flag is now clinical in the
+/// period in which the step is first found, and a notice in later periods (as a fast spell is
+/// flagged once), also when the step came too late in one period to be found before the next.
+#[test]
+fn a_step_that_may_be_real_fluid_is_for_a_clinician_in_the_period_it_is_first_found() {
+    let wiggle = [0.3, -0.2, 0.1, -0.4, 0.2, 0.0, -0.1];
+    // 6 kg from day `rise_from` on, `per_day` kg a day.
+    let series = |rise_from: i64, per_day: f64| -> Vec<(i64, f64)> {
+        (0..150)
+            .map(|i| {
+                let rise = (per_day * (i - rise_from + 1) as f64).clamp(0.0, 6.0);
+                (i, 100.0 + wiggle[(i % 7) as usize] + rise)
+            })
+            .collect()
+    };
+    let step_flag = |out: &ModuleOutput| {
+        let f: Vec<_> = out
+            .flags
+            .iter()
+            .filter(|f| f.code == "weigh_in_step")
+            .collect();
+        assert!(f.len() <= 1);
+        f.first().map(|f| (f.severity, f.message.clone()))
+    };
+    let data = participant(&series(60, 3.0));
+    // Period of days 30-89: the rise on days 60-61 is found and moved, and is for a clinician.
+    let now = run_period(&data, 30, 89);
+    let t = now.table("weigh_in_steps").unwrap();
+    assert_eq!(t.rows.len(), 1, "{:?}", t.rows);
+    let (severity, message) = step_flag(&now).expect("step flag");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(
+        message.contains("review the change with a licensed clinician"),
+        "{message}"
+    );
+    // Next period: the weigh-ins before it already showed the step; a notice.
+    let next = run_period(&data, 90, 119);
+    assert_eq!(next.table("weigh_in_steps").unwrap().rows.len(), 1);
+    assert_eq!(step_flag(&next).unwrap().0, FlagSeverity::Notice);
+    // A rise on day 86 has no week after it by day 89: no step to move yet, and the outlier
+    // screen left the new level out, so nothing was said until the next period. Now the jump
+    // is named at once, for a clinician, and not moved; and the next period, where the week
+    // has passed, moves it and names it again.
+    let late = participant(&series(86, 6.0));
+    let then = run_period(&late, 60, 89);
+    assert_eq!(then.table("weigh_in_steps").unwrap().rows.len(), 0);
+    let (severity, message) = step_flag(&then).expect("recent jump named");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(
+        message.starts_with(
+            "The last weigh-ins jumped: from 2027-05-26 on they are about 6.0 kg (13.2 lb) \
+             higher than before."
+        ),
+        "{message}"
+    );
+    let next = run_period(&late, 90, 119);
+    assert_eq!(next.table("weigh_in_steps").unwrap().rows.len(), 1);
+    assert_eq!(step_flag(&next).unwrap().0, FlagSeverity::Clinical);
+    // Two days of a new level are not enough to name.
+    assert_eq!(
+        step_flag(&run_period(&participant(&series(88, 6.0)), 60, 89)),
+        None
+    );
 }

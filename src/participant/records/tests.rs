@@ -168,6 +168,45 @@ fn a_stretch_of_pounds_under_kg_is_converted_reading_by_reading() {
     }
 }
 
+/// The first 20 days are someone else's weigh-ins (45 kg), the next 60 this person's (99 kg):
+/// each 99 was about 2.2 times the five before it as read, and since those had been turned
+/// into 45 kg one after another, every weigh-in to the end of the file was read as pounds and
+/// the person reported at 45 kg. A stretch running to the end of the file that holds most of
+/// it is left as written now; pounds for the last weeks of a longer file are still converted.
+#[test]
+fn a_stretch_to_the_end_of_the_file_is_converted_only_when_it_is_the_smaller_part() {
+    let day =
+        |i: i64| chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap() + chrono::Duration::days(i);
+    let file = |first: i64, kg_of: &dyn Fn(i64) -> f64| {
+        let mut text = String::from("date,weight,unit\n");
+        for i in 0..first {
+            text.push_str(&format!("{},{:.1},kg\n", day(i), kg_of(i)));
+        }
+        weights(&text)
+    };
+    let (w, diags) = file(80, &|i| if i < 20 { 45.0 } else { 99.0 });
+    assert_eq!(w.len(), 80);
+    // The weigh-ins of the last 60 days as written, none converted.
+    for x in &w[20..] {
+        assert_eq!(x.weight.kg(), 99.0, "{}: {diags:#?}", x.date);
+    }
+    assert_eq!(diags.len(), 0, "{diags:#?}");
+    // 50 days in kg, then 20 in pounds to the end: converted, each with a warning.
+    let (w, diags) = file(70, &|i| {
+        let kg = 90.0 - 0.05 * i as f64;
+        if i >= 50 { kg / 0.453_592_37 } else { kg }
+    });
+    for (i, x) in w.iter().enumerate() {
+        let kg = 90.0 - 0.05 * i as f64;
+        assert!(
+            (x.weight.kg() - kg).abs() < 0.06,
+            "day {i}: {}",
+            x.weight.kg()
+        );
+    }
+    assert_eq!(diags.len(), 20, "{diags:#?}");
+}
+
 #[test]
 fn kilograms_in_an_lb_row_are_converted_with_a_warning() {
     let (w, diags) = weights(
