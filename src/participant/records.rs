@@ -42,6 +42,20 @@ pub const UNIT_SWAP_TOLERANCE: f64 = 0.06;
 /// (common practice).
 pub const UNIT_SWAP_WINDOW_DAYS: i64 = 14;
 
+/// Two weigh-ins at most [`PEOPLE_MIX_MAX_DAYS`] apart that differ by more than this share of
+/// the lower one are not one person's (common practice: body weight varies by 1–3 % within a
+/// day, from water and food; 10 % leaves room for a stomach bug and a scale in the wrong unit
+/// of its own).
+pub const PEOPLE_MIX_JUMP: f64 = 0.10;
+/// Days apart (calendar days) within which [`PEOPLE_MIX_JUMP`] applies.
+pub const PEOPLE_MIX_MAX_DAYS: i64 = 1;
+/// A weights file is taken for more than one person's when at least this many neighbouring
+/// weigh-ins jump by [`PEOPLE_MIX_JUMP`] …
+pub const PEOPLE_MIX_MIN_JUMPS: usize = 3;
+/// … and the jumps are at least this share of the neighbouring pairs (one typing error gives
+/// two jumps, in and out, and is left to the trend's outlier screen).
+pub const PEOPLE_MIX_MIN_SHARE: f64 = 0.10;
+
 /// The days a participant's data may fall on.
 #[derive(Debug, Clone, Copy)]
 pub struct Window {
@@ -501,6 +515,11 @@ pub fn parse_weights(
         );
     }
 
+    if let Some(d) = mixed_people(&rows, &kg, wcol, ctx) {
+        diags.push(d);
+        return None;
+    }
+
     let mut out = Vec::new();
     for (r, kg) in rows.into_iter().zip(kg) {
         if !plausible_kg(kg) {
@@ -534,6 +553,72 @@ pub fn parse_weights(
     }
     out.sort_by(|a, b| (a.date, &a.time).cmp(&(b.date, &b.time)));
     Some(out)
+}
+
+/// A weights file that holds more than one person's weigh-ins: a scale several people share
+/// exports all of them, and a file copied from the wrong folder is added to the right one.
+/// Read as one person's, their mean made the baseline (95 kg and 62 kg on the first day gave
+/// 78 kg), the trend swung between them, and the report gave a wrong BMI class and a "fast
+/// loss" flag, without a word. Neighbouring weigh-ins (at most [`PEOPLE_MIX_MAX_DAYS`] apart,
+/// in date and time order, plausible values in kg after the unit check) that differ by more
+/// than [`PEOPLE_MIX_JUMP`] are counted; when they are many, the file is refused at the first.
+fn mixed_people(
+    rows: &[Parsed<RawWeight>],
+    kg: &[f64],
+    wcol: Option<u64>,
+    ctx: &FileCtx,
+) -> Option<Diagnostic> {
+    let mut order: Vec<usize> = (0..rows.len()).filter(|&i| plausible_kg(kg[i])).collect();
+    order.sort_by(|&a, &b| {
+        (rows[a].date, &rows[a].value.time, rows[a].line).cmp(&(
+            rows[b].date,
+            &rows[b].value.time,
+            rows[b].line,
+        ))
+    });
+    let (mut pairs, mut jumps) = (0usize, 0usize);
+    let mut first = None;
+    for w in order.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        if (rows[b].date - rows[a].date).num_days() > PEOPLE_MIX_MAX_DAYS {
+            continue;
+        }
+        pairs += 1;
+        if kg[a].max(kg[b]) > kg[a].min(kg[b]) * (1.0 + PEOPLE_MIX_JUMP) {
+            jumps += 1;
+            first.get_or_insert((a, b));
+        }
+    }
+    if jumps < PEOPLE_MIX_MIN_JUMPS || (jumps as f64) < PEOPLE_MIX_MIN_SHARE * pairs as f64 {
+        return None;
+    }
+    let (a, b) = first.expect("at least one jump");
+    let at = |i: usize| {
+        let r = &rows[i];
+        match &r.value.time {
+            Some(t) => format!("{:.1} kg on {} {t} (line {})", kg[i], r.date, r.line),
+            None => format!("{:.1} kg on {} (line {})", kg[i], r.date, r.line),
+        }
+    };
+    let pct = (PEOPLE_MIX_JUMP * 100.0).round();
+    Some(
+        ctx.error(format!(
+            "{jumps} of {pairs} weigh-ins taken within a day of the one before differ from it by \
+             more than {pct} %; body weight does not change that fast, so the file seems to hold \
+             more than one person's weigh-ins and is not used"
+        ))
+        .at(rows[b].line, wcol)
+        .field("weight")
+        .expected(format!(
+            "one person's weigh-ins, each within {pct} % of the one before it in the same or the \
+             next day"
+        ))
+        .found(format!("{} after {}", at(b), at(a)))
+        .hint(
+            "a scale several people share exports everyone's weigh-ins: keep only this \
+             participant's rows (or fix the values), then run again",
+        ),
+    )
 }
 
 #[derive(Debug, Clone)]

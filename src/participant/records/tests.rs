@@ -664,3 +664,56 @@ fn an_empty_weights_file_is_an_error_naming_the_file() {
         diags[0]
     );
 }
+
+#[test]
+fn a_weights_file_of_two_people_is_refused_at_the_first_jump() {
+    // A scale two people share: his weigh-ins in the morning (95 → 93 kg), hers in the
+    // evening (62 kg). Read as one person's, the first day's mean (78.5 kg) was the baseline.
+    let mut text = String::from("date,weight,unit,time\n");
+    for day in 1..=10 {
+        let his = 95.0 - 0.2 * f64::from(day);
+        text.push_str(&format!("2026-04-{day:02},{his:.1},kg,07:10\n"));
+        text.push_str(&format!("2026-04-{day:02},62.0,kg,21:30\n"));
+    }
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        &text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none(), "the file must not be used");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let e = &diags[0];
+    assert_eq!(e.severity, Severity::Error);
+    // 19 neighbouring pairs (all within a day), every one a jump of more than 10 %.
+    assert_eq!(
+        e.message,
+        "19 of 19 weigh-ins taken within a day of the one before differ from it by more than \
+         10 %; body weight does not change that fast, so the file seems to hold more than one \
+         person's weigh-ins and is not used"
+    );
+    assert_eq!((e.line, e.column), (Some(3), Some(2)));
+    assert_eq!(
+        e.found.as_deref(),
+        Some("62.0 kg on 2026-04-01 21:30 (line 3) after 94.8 kg on 2026-04-01 07:10 (line 2)")
+    );
+}
+
+#[test]
+fn one_mistyped_weigh_in_does_not_refuse_the_file() {
+    // 59.2 for 95.2: two jumps (in and out) among 19 pairs, left to the trend's outlier screen;
+    // and weigh-ins a week apart are never compared.
+    let mut text = String::from("date,weight,unit\n");
+    for day in 1..=20 {
+        let v = if day == 7 { 59.2 } else { 95.2 };
+        text.push_str(&format!("2026-04-{day:02},{v},kg\n"));
+    }
+    text.push_str(
+        "2026-05-01,62.0,kg\n2026-05-08,95.0,kg\n2026-05-15,62.0,kg\n2026-05-22,95.0,kg\n",
+    );
+    let (w, diags) = weights(&text);
+    assert_eq!(w.len(), 24);
+    assert!(diags.is_empty(), "{diags:#?}");
+}
