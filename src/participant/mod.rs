@@ -73,6 +73,70 @@ impl LoadedParticipant {
     }
 }
 
+/// Smallest `weights.csv` compared across participants by [`same_weigh_ins`]: about five
+/// weigh-ins, so two people's identical files are not a coincidence of one or two rows.
+pub const SAME_WEIGHTS_MIN_BYTES: u64 = 100;
+
+/// Participants whose `weights.csv` is byte for byte another participant's: one person's data
+/// in two folders (enrolled twice under two ids, or a folder copied for a new participant and
+/// not emptied). Both were reported and counted in the group figures as two people, so a group
+/// of ten could pass as eleven. Returns an error for each of them (in the order given), naming
+/// the other folders; `check` and `run` both use it, and a run leaves them out of the group
+/// figures. `participants` is (id, files read) in id order.
+pub fn same_weigh_ins<'a>(
+    participants: impl IntoIterator<Item = (&'a str, &'a [InputFile])>,
+) -> Vec<Diagnostic> {
+    let mut by_hash: std::collections::BTreeMap<&str, Vec<(&str, &str)>> =
+        std::collections::BTreeMap::new();
+    for (id, files) in participants {
+        let weights = files.iter().find(|f| {
+            f.bytes >= SAME_WEIGHTS_MIN_BYTES
+                && f.path
+                    .rsplit('/')
+                    .next()
+                    .is_some_and(|n| n.eq_ignore_ascii_case("weights.csv"))
+        });
+        if let Some(f) = weights {
+            by_hash
+                .entry(f.blake3.as_str())
+                .or_default()
+                .push((id, f.path.as_str()));
+        }
+    }
+    let mut out = Vec::new();
+    for same in by_hash.values().filter(|v| v.len() > 1) {
+        for &(id, path) in same {
+            let others: Vec<&str> = same
+                .iter()
+                .filter(|(o, _)| *o != id)
+                .map(|(_, p)| *p)
+                .collect();
+            out.push((
+                id,
+                Diagnostic::error(
+                    path,
+                    format!(
+                        "the same weigh-ins as {} (the files are identical): one person's data in \
+                         more than one participant folder; none of them is counted in the group \
+                         report",
+                        others.join(", ")
+                    ),
+                )
+                .participant(id)
+                .expected("each participant's own weigh-ins")
+                .found(format!("a copy of {}", others.join(", ")))
+                .hint(
+                    "a participant enrolled twice, or a folder copied for a new participant: keep \
+                     the person's data in one folder and remove or correct the other (their own \
+                     reports are still written)",
+                ),
+            ));
+        }
+    }
+    out.sort_by(|a, b| a.0.cmp(b.0));
+    out.into_iter().map(|(_, d)| d).collect()
+}
+
 /// Lists the participant folders under `ROOT/participants/`, sorted by name. Entries that are not
 /// usable folders (bad names, files, links) are reported as diagnostics.
 pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {

@@ -290,3 +290,57 @@ fn a_folder_swapped_for_a_link_after_listing_is_not_followed() {
     assert_eq!(d.file, "participants/P1");
     assert!(d.message.contains("symbolic link"), "{d}");
 }
+
+#[test]
+fn identical_weights_files_of_two_participants_are_errors_for_both() {
+    let file = |id: &str, name: &str, hash: &str, bytes: u64| InputFile {
+        path: format!("participants/{id}/{name}"),
+        blake3: hash.into(),
+        bytes,
+    };
+    let a = vec![
+        file("A-1", "weights.csv", "h1", 400),
+        file("A-1", "intake.csv", "i", 900),
+    ];
+    let b = vec![file("B-2", "Weights.CSV", "h1", 400)];
+    let c = vec![file("C-3", "weights.csv", "h2", 400)];
+    // Identical but short (one or two rows may coincide): not compared.
+    let d = vec![file("D-4", "weights.csv", "h3", 60)];
+    let e = vec![file("E-5", "weights.csv", "h3", 60)];
+    // The same intake file alone is no evidence (several people may log nothing new).
+    let f = vec![file("F-6", "intake.csv", "i", 900)];
+    let got = same_weigh_ins([
+        ("A-1", a.as_slice()),
+        ("B-2", b.as_slice()),
+        ("C-3", c.as_slice()),
+        ("D-4", d.as_slice()),
+        ("E-5", e.as_slice()),
+        ("F-6", f.as_slice()),
+    ]);
+    let brief: Vec<(Option<&str>, &str, &str)> = got
+        .iter()
+        .map(|d| {
+            (
+                d.participant.as_deref(),
+                d.file.as_str(),
+                d.found.as_deref().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(
+        brief,
+        [
+            (
+                Some("A-1"),
+                "participants/A-1/weights.csv",
+                "a copy of participants/B-2/Weights.CSV"
+            ),
+            (
+                Some("B-2"),
+                "participants/B-2/Weights.CSV",
+                "a copy of participants/A-1/weights.csv"
+            ),
+        ]
+    );
+    assert!(got.iter().all(|d| d.severity == Severity::Error));
+}

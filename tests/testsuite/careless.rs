@@ -112,6 +112,48 @@ fn the_group_report_names_only_the_participants_it_leaves_out() {
 }
 
 #[test]
+fn one_persons_weigh_ins_in_two_folders_are_not_counted_twice() {
+    let t = ProgramTest::demo(5);
+    let out = out_dir(&t);
+    // A participant enrolled again under a new id, their folder copied: the group counted
+    // one person as two, without a word.
+    let copy = t.dir.join("participants/SG-006");
+    fs::create_dir(&copy).unwrap();
+    for e in fs::read_dir(t.dir.join("participants/SG-002")).unwrap() {
+        let e = e.unwrap();
+        fs::copy(e.path(), copy.join(e.file_name())).unwrap();
+    }
+    let profile = copy.join("profile.yaml");
+    let p = fs::read_to_string(&profile).unwrap();
+    fs::write(&profile, p.replace("id: SG-002", "id: SG-006")).unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check.stdout.contains(
+            "error: participants/SG-006/weights.csv: the same weigh-ins as \
+             participants/SG-002/weights.csv (the files are identical)"
+        ),
+        "{}",
+        check.stdout
+    );
+    let o = run(&t, "html");
+    assert_eq!(o.code, 4, "{o:?}");
+    assert!(out.join("participants/SG-002.html").exists());
+    assert!(out.join("participants/SG-006.html").exists());
+    assert_eq!(
+        left_out_note(&out),
+        "2 participant folders could not be used because of input errors and are not counted here; the run&#x27;s data-quality list (metrics/data-quality.csv) names the problems."
+    );
+    let dq = fs::read_to_string(out.join("metrics/data-quality.csv")).unwrap();
+    let rows: Vec<&str> = dq
+        .lines()
+        .filter(|l| l.contains("the same weigh-ins as"))
+        .map(|l| l.split(',').nth(1).unwrap())
+        .collect();
+    assert_eq!(rows, ["SG-002", "SG-006"]);
+}
+
+#[test]
 fn ids_that_differ_only_in_case_are_both_left_out() {
     let t = ProgramTest::demo(3);
     let out = out_dir(&t);
