@@ -877,7 +877,26 @@ pub fn parse_activity(
         Some((activity, minutes, met, met_source, steps))
     });
     let acol = table.column("activity");
-    for (label, (n, first)) in &unknown {
+    // Each unknown label gets its own warning with suggestions, up to the diagnostics kept of
+    // one kind: the labels of most rows. The rest are counted in one warning (a file of 49,000
+    // distinct labels spent seconds on suggestions nobody would read, one warning each).
+    let mut ranked: Vec<(&String, &(usize, u64))> = unknown.iter().collect();
+    ranked.sort_by(|a, b| b.1.0.cmp(&a.1.0).then(a.1.1.cmp(&b.1.1)));
+    let rest = ranked.split_off(ranked.len().min(crate::limits::MAX_DIAGNOSTICS_PER_KIND));
+    ranked.sort_by(|a, b| a.0.cmp(b.0));
+    let more = rest.iter().map(|(_, (_, l))| *l).min().map(|first| {
+        let rows: usize = rest.iter().map(|(_, (n, _))| n).sum();
+        ctx.warning(format!(
+                "{} more unknown activities in {} rows (first at line {first}); without a MET value these rows are dropped",
+                crate::diag::thousands(rest.len()),
+                crate::diag::thousands(rows)
+            ))
+            .at(first, acol)
+            .field("activity")
+            .expected("an activity the tool knows, a label from program.yaml's `activities:`, or any label with a `met` value")
+            .hint("the labels of most rows are listed one by one above; check that this is an activity file, and add a `met` column")
+    });
+    for (label, (n, first)) in ranked {
         let near = activities::suggestions(label, &opts.activities, 3)
             .iter()
             .map(|s| format!("`{s}`"))
@@ -903,6 +922,7 @@ pub fn parse_activity(
             )),
         );
     }
+    diags.extend(more);
     note_identical_same_day(&rows, "activity", ctx);
     let rows = in_window(rows, w, &table, ctx, diags);
     table.describe(opts, ctx);

@@ -717,3 +717,33 @@ fn one_mistyped_weigh_in_does_not_refuse_the_file() {
     assert_eq!(w.len(), 24);
     assert!(diags.is_empty(), "{diags:#?}");
 }
+
+#[test]
+fn unknown_activities_past_the_first_twenty_labels_are_counted_in_one_warning() {
+    // 25 labels of one row each, then one label of three rows: the labels of most rows are
+    // named (the three-row one first among them), the other 6 are counted in one warning.
+    let mut text = String::from("date,activity,minutes\n");
+    for i in 0..25 {
+        text.push_str(&format!("2026-04-01,odd thing {i:02},30\n"));
+    }
+    for _ in 0..3 {
+        text.push_str("2026-04-02,zz most rows,30\n");
+    }
+    let (v, diags) = activity(&text);
+    assert!(v.is_empty());
+    assert_eq!(diags.len(), 21, "{diags:#?}");
+    let named: Vec<u64> = diags[..20].iter().map(|d| d.line.unwrap()).collect();
+    // Labels in label order: odd thing 00 … 18 (lines 2–20), then zz most rows (line 27).
+    assert_eq!(named[..19], (2..=20).collect::<Vec<u64>>()[..]);
+    assert_eq!(named[19], 27);
+    assert!(
+        diags[19]
+            .message
+            .contains("unknown activity `zz most rows` in 3 rows")
+    );
+    assert_eq!(
+        diags[20].message,
+        "6 more unknown activities in 6 rows (first at line 21); without a MET value these rows are dropped"
+    );
+    assert_eq!((diags[20].line, diags[20].column), (Some(21), Some(2)));
+}
