@@ -28,6 +28,13 @@ pub const WEIGHT_KG_RANGE: (f64, f64) = (25.0, 350.0);
 /// as kilojoules (refused until the header says which): adults' logged intake is rarely above
 /// 4,500 kcal a day, while 4,500 kJ is about 1,075 kcal (common practice).
 pub const KJ_LIKE_MEDIAN_KCAL: f64 = 4_500.0;
+/// A `kcal` column (named so, or `Energy (kcal)`) whose daily totals have a median above this
+/// many is refused as kilojoules under a kcal header: no adult in a weight-management program
+/// logs over 6,000 kcal a day for weeks, while 6,000 kJ is about 1,430 kcal, below what most
+/// adults eat (common practice).
+pub const KJ_LIKE_MEDIAN_NAMED_KCAL: f64 = 6_000.0;
+/// Kilojoules in a kilocalorie: 4.184 (thermochemical calorie, exact by definition).
+pub const KJ_PER_KCAL: f64 = 4.184;
 /// Plausible logged intake per day, kcal: above 0 and at most this (common practice).
 pub const MAX_KCAL_PER_DAY: f64 = 10_000.0;
 /// Most minutes one activity row, or one day's rows together, can hold: 16 waking hours
@@ -652,8 +659,7 @@ pub fn parse_intake(
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let mut kcal = c.number("kcal", d)?;
         if c.table.header_unit("kcal") == Some("kj") {
-            // 1 kcal = 4.184 kJ (thermochemical calorie, exact by definition).
-            kcal /= 4.184;
+            kcal /= KJ_PER_KCAL;
         }
         if kcal < 0.0 {
             d.push(
@@ -735,6 +741,33 @@ pub fn parse_intake(
                 .expected(format!("kcal, with daily totals mostly below {}", crate::diag::thousands(KJ_LIKE_MEDIAN_KCAL as usize)))
                 .found(format!("`{written}`, median daily total {}", crate::diag::thousands(m.round() as usize)))
                 .hint(format!("write the unit in the header: `{written} (kJ)` or `{written} (kcal)`")),
+            );
+            return None;
+        }
+    }
+    // A column that says kcal but holds kilojoules (a kJ export whose header was renamed, or a
+    // template filled in with kJ): daily totals far above what anyone logs for weeks. Only the
+    // days over 10,000 were dropped, and the report said "Intake you logged (average) 8,830
+    // kcal/day".
+    if kcol.is_some() && table.header_unit("kcal") != Some("kj") && days.len() >= 3 {
+        let written = table.written_as("kcal").unwrap_or("kcal");
+        let mut totals: Vec<f64> = days.values().map(|d| d.kcal).collect();
+        let m = median(&mut totals);
+        if m > KJ_LIKE_MEDIAN_NAMED_KCAL {
+            let median = crate::diag::thousands(m.round() as usize);
+            diags.push(
+                ctx.error(format!(
+                    "the daily totals of column `{written}` have a median of {median} kcal, which nobody logs for weeks; they look like kilojoules ({median} kJ is about {} kcal); the file is not used",
+                    crate::diag::thousands((m / KJ_PER_KCAL).round() as usize)
+                ))
+                .at(table.header_line, kcol)
+                .field("kcal")
+                .expected(format!(
+                    "kcal, with daily totals mostly below {}",
+                    crate::diag::thousands(KJ_LIKE_MEDIAN_NAMED_KCAL as usize)
+                ))
+                .found(format!("`{written}`, median daily total {median}"))
+                .hint("if the values are kilojoules, say so in the header (`Energy (kJ)`), and they are converted; if they are kcal, check the export"),
             );
             return None;
         }

@@ -399,13 +399,31 @@ fn an_energy_column_without_a_unit_holding_kilojoules_is_refused() {
     assert_eq!(d[0].severity, Severity::Error);
     assert_eq!((d[0].line, d[0].column), (Some(1), Some(2)));
     assert!(d[0].message.contains("median 8,000"), "{}", d[0]);
-    // The unit in the header settles it either way; kcal-sized totals are read as kcal.
+    // A kJ header settles it; kcal-sized totals are read as kcal.
     let (v, d) = parse(&kj.replace("Energy", "Energy (kJ)"));
     assert!(d.is_empty(), "{d:#?}");
     assert_eq!(v.unwrap()[0].kcal, 8000.0 / 4.184);
-    let (v, d) = parse(&kj.replace("Energy", "kcal"));
+    // A header that says kcal over kilojoules (a kJ export renamed, a template filled in with
+    // kJ) printed "Intake you logged (average) 8,830 kcal/day": a median over 6,000 kcal a day
+    // is refused too, whatever the header calls it.
+    for header in ["kcal", "Calories", "Energy (kcal)"] {
+        let (v, d) = parse(&kj.replace("Energy", header));
+        assert!(v.is_none(), "{header}");
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!((d[0].line, d[0].column), (Some(1), Some(2)));
+        assert_eq!(
+            d[0].message,
+            format!(
+                "the daily totals of column `{header}` have a median of 8,000 kcal, which nobody \
+                 logs for weeks; they look like kilojoules (8,000 kJ is about 1,912 kcal); the \
+                 file is not used"
+            )
+        );
+    }
+    // A big eater's log under a kcal header is read: 5,500 a day.
+    let (v, d) = parse("date,kcal\n2026-04-01,5500\n2026-04-02,5400\n2026-04-03,5600\n");
     assert!(d.is_empty(), "{d:#?}");
-    assert_eq!(v.unwrap()[0].kcal, 8000.0);
+    assert_eq!(v.unwrap()[1].kcal, 5400.0);
     let (v, d) = parse("date,Energy\n2026-04-01,1800\n2026-04-02,2100\n2026-04-03,1900\n");
     assert!(d.is_empty(), "{d:#?}");
     assert_eq!(v.unwrap().len(), 3);
