@@ -137,6 +137,49 @@ pub fn same_weigh_ins<'a>(
     out.into_iter().map(|(_, d)| d).collect()
 }
 
+/// Plausible BMI, kg/m², of the median weigh-in at the profile's height (common practice: below
+/// 12 an adult does not live for long, above 150 nobody has been recorded; outside it, the
+/// height or the weights are wrong).
+pub const BMI_PLAUSIBLE: (f64, f64) = (12.0, 150.0);
+
+/// An error on the profile's height when the median weigh-in gives a BMI outside
+/// [`BMI_PLAUSIBLE`].
+fn implausible_bmi(
+    p: &cohortpress_metric_api::Profile,
+    weights: &[cohortpress_metric_api::WeighIn],
+    ctx: &FileCtx,
+    height_line: Option<u64>,
+) -> Option<Diagnostic> {
+    if weights.is_empty() {
+        return None;
+    }
+    let mut kg: Vec<f64> = weights.iter().map(|w| w.weight.kg()).collect();
+    kg.sort_by(f64::total_cmp);
+    let median = kg[kg.len() / 2];
+    let m = p.height.cm() / 100.0;
+    let bmi = median / (m * m);
+    if (BMI_PLAUSIBLE.0..=BMI_PLAUSIBLE.1).contains(&bmi) {
+        return None;
+    }
+    let mut d = ctx
+        .error(format!(
+            "a height of {:.0} cm with weigh-ins around {median:.1} kg gives a BMI of {bmi:.1}, \
+             which no adult has; the participant cannot be used",
+            p.height.cm()
+        ))
+        .field("height")
+        .expected(format!(
+            "a height that gives the weigh-ins a BMI between {} and {}",
+            BMI_PLAUSIBLE.0, BMI_PLAUSIBLE.1
+        ))
+        .found(format!("{:.0} cm", p.height.cm()))
+        .hint("check the height (a typing error, or inches written as cm) and the weights' unit");
+    if let Some(l) = height_line {
+        d = d.at(l, None);
+    }
+    Some(d)
+}
+
 /// Lists the participant folders under `ROOT/participants/`, sorted by name. Entries that are not
 /// usable folders (bad names, files, links) are reported as diagnostics.
 pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
@@ -586,6 +629,7 @@ pub fn load_opened(
     let pctx = FileCtx::new(id, rel(&profile_name));
     note_case(&pctx, &profile_name, PROFILE_FILE);
     let mut enrolled_line = None;
+    let mut height_line = None;
     let profile = match read_input(
         &handle,
         &profile_name,
@@ -607,6 +651,7 @@ pub fn load_opened(
         Some(Err(())) => None,
         Some(Ok(text)) => {
             enrolled_line = crate::program::load::key_line(&text, "enrolled");
+            height_line = crate::program::load::key_line(&text, "height");
             profile::parse_profile(&text, id, &program.info.targets, &pctx, &mut diags)
         }
     };
@@ -652,6 +697,15 @@ pub fn load_opened(
     let sessions = csv_file!(records::SESSIONS, records::parse_sessions);
     let labs = csv_file!(records::LABS, records::parse_labs);
 
+    // Height and weight each in range can still give a BMI no adult has (250 cm typed for
+    // 150 cm): every BMI, its WHO class and the clinical flags built on it would be wrong.
+    let mut profile_usable = profile_usable;
+    if let Some(p) = profile.as_ref().filter(|_| profile_usable)
+        && let Some(d) = implausible_bmi(p, &weights, &pctx, height_line)
+    {
+        diags.push(d);
+        profile_usable = false;
+    }
     let data = match profile {
         Some(profile) if profile_usable => Some(ParticipantData {
             profile,

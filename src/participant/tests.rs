@@ -344,3 +344,38 @@ fn identical_weights_files_of_two_participants_are_errors_for_both() {
     );
     assert!(got.iter().all(|d| d.severity == Severity::Error));
 }
+
+#[test]
+fn a_height_that_gives_the_weigh_ins_an_impossible_bmi_is_an_error_at_its_line() {
+    // 250 cm typed for 150 cm: each value is in range, the BMI of 61 kg at 2.5 m is 9.8, and
+    // the report printed "BMI 9.8 … underweight" with a clinical flag.
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights = b"date,weight,unit\n2026-04-02,61.2,kg\n2026-04-09,60.9,kg\n2026-04-16,61.4,kg\n";
+    let tall = PROFILE.replace("180 cm", "250 cm");
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[("profile.yaml", tall.as_bytes()), ("weights.csv", weights)],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_none());
+    assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
+    let e = &lp.diagnostics[0];
+    assert_eq!(e.severity, Severity::Error);
+    assert_eq!(
+        (e.file.as_str(), e.line),
+        ("participants/P1/profile.yaml", Some(4))
+    );
+    assert_eq!(
+        e.message,
+        "a height of 250 cm with weigh-ins around 61.2 kg gives a BMI of 9.8, which no adult \
+         has; the participant cannot be used"
+    );
+    // The same weigh-ins at 150 cm (BMI 27.2) are used.
+    let fine = PROFILE.replace("180 cm", "150 cm");
+    fs::write(dir.path.join("profile.yaml"), fine).unwrap();
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
+    assert_eq!(lp.data.unwrap().weights.len(), 3);
+}
