@@ -85,6 +85,48 @@ fn files_of_someone_elses_in_an_output_folder_are_never_deleted() {
 }
 
 #[test]
+fn an_output_folder_of_another_program_is_never_replaced() {
+    // Two programs' cron lines with one --out: the second run replaced the first program's
+    // reports with its own, and the first sponsor's group report with the second's.
+    let t = ProgramTest::demo(3);
+    let out = out_dir(&t);
+    assert_eq!(run(&t, "html").code, 0);
+    let other = t.dir.parent().unwrap().join("other");
+    crate::harness::copy_tree(&t.dir, &other);
+    let yaml = fs::read_to_string(other.join("program.yaml")).unwrap();
+    let (head, tail) = yaml.split_once("  id: ").unwrap();
+    let rest = tail.split_once(' ').unwrap().1;
+    fs::write(
+        other.join("program.yaml"),
+        format!("{head}  id: other-program {rest}"),
+    )
+    .unwrap();
+    let before = tree_hashes(&out);
+    let o = t.run(&[
+        "run",
+        other.to_str().unwrap(),
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(
+        o.stderr.contains(
+            "it holds the output of another program, `steady-ground-2026` (this one is \
+             `other-program`)"
+        ),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(tree_hashes(&out), before, "nothing was replaced");
+    // The program's own next run still replaces its own output.
+    assert_eq!(run(&t, "html").code, 0);
+}
+
+#[test]
 fn the_group_report_names_only_the_participants_it_leaves_out() {
     let t = ProgramTest::demo(5);
     let out = out_dir(&t);
