@@ -137,6 +137,43 @@ pub fn same_weigh_ins<'a>(
     out.into_iter().map(|(_, d)| d).collect()
 }
 
+/// Most days an enrolment may come before `program.start` (sign-ups before the first session);
+/// an earlier date is a typing error in the year (common practice: a program's enrolment opens
+/// weeks, not years, before it starts).
+pub const MAX_ENROLLED_BEFORE_START_DAYS: i64 = 365;
+
+/// An error on `enrolled` when it is more than [`MAX_ENROLLED_BEFORE_START_DAYS`] before the
+/// program's start: `1926-04-01` for `2026-04-01` was read without a word, and every "since
+/// enrolment" figure (weeks, adherence, attendance) ran over a century of empty weeks (an 8 MB
+/// PDF of blank weekly rows; its weeks fell outside the group's week-by-week means).
+fn enrolled_long_before_start(
+    enrolled: NaiveDate,
+    start: NaiveDate,
+    ctx: &FileCtx,
+    line: Option<u64>,
+) -> Option<Diagnostic> {
+    let days = (start - enrolled).num_days();
+    if days <= MAX_ENROLLED_BEFORE_START_DAYS {
+        return None;
+    }
+    let mut d = ctx
+        .error(format!(
+            "enrolment date {enrolled} is {} days before the program starts ({start}); the \
+             participant cannot be used",
+            crate::diag::thousands(days as usize)
+        ))
+        .field("enrolled")
+        .expected(format!(
+            "an enrolment date at most {MAX_ENROLLED_BEFORE_START_DAYS} days before {start}"
+        ))
+        .found(enrolled.to_string())
+        .hint("check the year");
+    if let Some(l) = line {
+        d = d.at(l, None);
+    }
+    Some(d)
+}
+
 /// Plausible BMI, kg/m², of the median weigh-in at the profile's height (common practice: below
 /// 12 an adult does not live for long, above 150 nobody has been recorded; outside it, the
 /// height or the weights are wrong).
@@ -700,6 +737,13 @@ pub fn load_opened(
     // Height and weight each in range can still give a BMI no adult has (250 cm typed for
     // 150 cm): every BMI, its WHO class and the clinical flags built on it would be wrong.
     let mut profile_usable = profile_usable;
+    if let Some(p) = profile.as_ref().filter(|_| profile_usable)
+        && let Some(d) =
+            enrolled_long_before_start(p.enrolled, program.info.start, &pctx, enrolled_line)
+    {
+        diags.push(d);
+        profile_usable = false;
+    }
     if let Some(p) = profile.as_ref().filter(|_| profile_usable)
         && let Some(d) = implausible_bmi(p, &weights, &pctx, height_line)
     {

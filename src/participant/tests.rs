@@ -379,3 +379,36 @@ fn a_height_that_gives_the_weigh_ins_an_impossible_bmi_is_an_error_at_its_line()
     assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
     assert_eq!(lp.data.unwrap().weights.len(), 3);
 }
+
+#[test]
+fn an_enrolment_more_than_a_year_before_the_program_starts_is_an_error_at_its_line() {
+    // `1926-04-01` for `2026-04-01`: every "since enrolment" figure ran over a century.
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights: &[u8] = b"date,weight,unit\n2026-04-02,80.1,kg\n2026-04-09,79.8,kg\n";
+    let early = PROFILE.replace("enrolled: 2026-04-01", "enrolled: 2025-03-31");
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[("profile.yaml", early.as_bytes()), ("weights.csv", weights)],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_none());
+    assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
+    let e = &lp.diagnostics[0];
+    assert_eq!(
+        (e.file.as_str(), e.line),
+        ("participants/P1/profile.yaml", Some(5))
+    );
+    assert_eq!(
+        e.message,
+        "enrolment date 2025-03-31 is 366 days before the program starts (2026-04-01); the \
+         participant cannot be used"
+    );
+    // A sign-up up to a year before the start is read.
+    let fine = PROFILE.replace("enrolled: 2026-04-01", "enrolled: 2025-04-01");
+    fs::write(dir.path.join("profile.yaml"), fine).unwrap();
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
+    assert_eq!(lp.data.unwrap().profile.enrolled.to_string(), "2025-04-01");
+}
