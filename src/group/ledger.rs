@@ -104,11 +104,11 @@ pub fn resolve_dir(
             let programs = default_dir(&program_out);
             let existing =
                 std::fs::symlink_metadata(programs.join(LEDGER_FILE)).is_ok_and(|m| m.is_file());
-            return Ok(if existing {
-                programs
+            if existing {
+                (programs, "the program's ledger")
             } else {
-                default_dir(out_dir)
-            });
+                (cwd.join(default_dir(out_dir)), "the ledger")
+            }
         }
     };
     let root = cwd.join(&program.root);

@@ -142,6 +142,14 @@ fn lexical_state_problem(
         Some("the program folder itself".into())
     } else if inside(out) {
         Some("inside the output folder, which every run replaces".into())
+    } else if lexical(&root.join(out)).starts_with(&state) {
+        // `--out reports.ledger/x`: the run staged its output in the ledger folder, and the
+        // lock file it left there made every later run refuse the ledger (exit 6).
+        Some(
+            "around the output folder: the output would be written inside the ledger folder, \
+             which holds the ledger's files only; name an output folder outside it"
+                .into(),
+        )
     } else {
         None
     }
