@@ -447,7 +447,7 @@ fn an_output_folder_inside_the_ledger_folder_is_refused_before_anything_is_writt
     assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
     assert!(
         o.stderr
-            .contains("the output would be written inside the ledger folder"),
+            .contains("would be inside the program's ledger folder"),
         "{}",
         o.stderr
     );
