@@ -84,10 +84,25 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
         };
     };
     let (dirs, discovery) = participant::discover(prog);
-    let participants: Vec<LoadedParticipant> = dirs
+    let mut participants: Vec<LoadedParticipant> = dirs
         .par_iter()
         .map(|d| participant::load_participant(prog, d, as_of))
         .collect();
+    // One person's weigh-ins in two folders: the same errors a run gives (and its exit code).
+    let same = participant::same_weigh_ins(
+        participants
+            .iter()
+            .filter(|p| p.data.is_some())
+            .map(|p| (p.id.as_str(), p.files.as_slice())),
+    );
+    for d in same {
+        if let Some(p) = participants
+            .iter_mut()
+            .find(|p| d.participant.as_deref() == Some(p.id.as_str()))
+        {
+            p.diagnostics.push(d);
+        }
+    }
     CheckReport {
         program,
         participants,

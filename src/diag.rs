@@ -65,7 +65,7 @@ impl Diagnostic {
             line: None,
             column: None,
             field: None,
-            message: message.into(),
+            message: clip(message.into()),
             expected: None,
             found: None,
             hint: None,
@@ -87,25 +87,25 @@ impl Diagnostic {
 
     /// Sets the CSV column or YAML key path.
     pub fn field(mut self, field: impl Into<String>) -> Self {
-        self.field = Some(field.into());
+        self.field = Some(clip(field.into()));
         self
     }
 
     /// Sets what was expected.
     pub fn expected(mut self, expected: impl Into<String>) -> Self {
-        self.expected = Some(expected.into());
+        self.expected = Some(clip(expected.into()));
         self
     }
 
     /// Sets what was found.
     pub fn found(mut self, found: impl Into<String>) -> Self {
-        self.found = Some(found.into());
+        self.found = Some(clip(found.into()));
         self
     }
 
     /// Sets the hint.
     pub fn hint(mut self, hint: impl Into<String>) -> Self {
-        self.hint = Some(hint.into());
+        self.hint = Some(clip(hint.into()));
         self
     }
 
@@ -160,6 +160,23 @@ impl fmt::Display for Diagnostic {
             write!(f, "\n  hint: {}", printable(h))?;
         }
         Ok(())
+    }
+}
+
+/// `s` cut to [`crate::limits::MAX_DIAGNOSTIC_TEXT_CHARS`] characters, with how much was left
+/// out. Diagnostics quote what they found, and a file may hold anything: a 60 MB header line
+/// without a delimiter was quoted whole in the message, the log, the data-quality list and the
+/// participant's partial result (800 MB resident for one participant).
+fn clip(s: String) -> String {
+    match s
+        .char_indices()
+        .nth(crate::limits::MAX_DIAGNOSTIC_TEXT_CHARS)
+    {
+        None => s,
+        Some((cut, _)) => {
+            let rest = s[cut..].chars().count();
+            format!("{}… ({} more characters)", &s[..cut], thousands(rest))
+        }
     }
 }
 
@@ -282,6 +299,24 @@ mod tests {
             printable("plain – text"),
             std::borrow::Cow::Borrowed(_)
         ));
+    }
+
+    #[test]
+    fn long_text_in_a_diagnostic_is_cut_with_how_much_was_left_out() {
+        let d = Diagnostic::error("f.csv", "é".repeat(1500))
+            .found("x".repeat(1000))
+            .expected("y".repeat(1001))
+            .hint("short");
+        assert_eq!(
+            d.message,
+            format!("{}… (500 more characters)", "é".repeat(1000))
+        );
+        assert_eq!(d.found.as_deref(), Some("x".repeat(1000).as_str()));
+        assert_eq!(
+            d.expected.as_deref(),
+            Some(format!("{}… (1 more characters)", "y".repeat(1000)).as_str())
+        );
+        assert_eq!(d.hint.as_deref(), Some("short"));
     }
 
     #[test]

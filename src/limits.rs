@@ -35,6 +35,9 @@ pub const MAX_CSV_FIELD_BYTES: usize = 4096;
 /// typo (`--jobs 1000000`) made the run spend a minute creating threads until memory ran out,
 /// then abort (common practice: far above the cores of any machine this runs on).
 pub const MAX_JOBS: usize = 512;
+/// Longest text of one part of a diagnostic (message, expected, found, hint), in characters;
+/// the rest is counted, not kept (a quoted header or a list of line numbers can be megabytes).
+pub const MAX_DIAGNOSTIC_TEXT_CHARS: usize = 1000;
 /// Diagnostics of one kind kept per file; the rest are counted in one summary line.
 pub const MAX_DIAGNOSTICS_PER_KIND: usize = 20;
 

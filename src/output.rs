@@ -111,6 +111,10 @@ pub struct OutputTarget {
     pub program_root: PathBuf,
     /// The name of the participants folder inside the program folder (`participants`).
     pub participants_dir: &'static str,
+    /// The program's id: an output of another program is never replaced (two programs given
+    /// one output folder would each delete the other's reports, and a sponsor would find the
+    /// other program's group report where theirs should be).
+    pub program_id: String,
     /// The program's own templates folder (`report.templates`), also an input.
     pub templates: Option<PathBuf>,
     /// What the run writes.
@@ -205,12 +209,12 @@ pub struct OutputSet {
 }
 
 /// What an existing folder holds, as far as ownership goes.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq)]
 enum Existing {
     /// Nothing: any run may write it.
     Empty,
-    /// A cohortpress output of this scope.
-    Ours(OutputScope),
+    /// A cohortpress output of this scope, of the program with this id (when it says).
+    Ours(OutputScope, Option<String>),
 }
 
 /// Reads what `dir` (an existing folder) holds: empty, one of our outputs, or something else
@@ -243,7 +247,10 @@ fn existing_output(dir: &Path) -> Result<Existing, String> {
         if let Some(found) = unlisted_files(dir, &m) {
             return Err(found);
         }
-        return Ok(Existing::Ours(scope));
+        return Ok(Existing::Ours(
+            scope,
+            m["program_id"].as_str().map(str::to_string),
+        ));
     }
     if let Some(s) = json("shard.json")
         && s["format"].is_u64()
@@ -252,7 +259,10 @@ fn existing_output(dir: &Path) -> Result<Existing, String> {
             .as_str()
             .is_some_and(|t| t.starts_with("cohortpress "))
     {
-        return Ok(Existing::Ours(OutputScope::Shard));
+        return Ok(Existing::Ours(
+            OutputScope::Shard,
+            s["program_id"].as_str().map(str::to_string),
+        ));
     }
     Err("it is not empty and holds no cohortpress manifest.json".into())
 }
@@ -348,7 +358,7 @@ fn is_our_folder(dir: &Path) -> bool {
     fs::symlink_metadata(dir).is_ok_and(|m| m.is_dir())
         && matches!(
             existing_output(dir),
-            Ok(Existing::Empty | Existing::Ours(_))
+            Ok(Existing::Empty | Existing::Ours(..))
         )
 }
 
@@ -461,7 +471,19 @@ fn check_replaceable(out_dir: &Path, target: &OutputTarget) -> Result<(), Stagin
         }
         Ok(_) => match existing_output(out_dir) {
             Ok(Existing::Empty) => {}
-            Ok(Existing::Ours(OutputScope::Complete)) if target.scope != OutputScope::Complete => {
+            Ok(Existing::Ours(_, Some(other))) if other != target.program_id => {
+                return Err(StagingError::Refused(format!(
+                    "refusing to write the output to {} ({}): it holds the output of another \
+                     program, `{other}` (this one is `{}`), and a run replaces its output folder \
+                     as a whole; give each program an output folder of its own",
+                    out_dir.display(),
+                    target.named_by,
+                    target.program_id
+                )));
+            }
+            Ok(Existing::Ours(OutputScope::Complete, _))
+                if target.scope != OutputScope::Complete =>
+            {
                 return Err(StagingError::Refused(format!(
                     "refusing to replace the complete output in {} with a partial one \
                          ({}); give the partial run a folder of its own with --out DIR",
@@ -472,7 +494,7 @@ fn check_replaceable(out_dir: &Path, target: &OutputTarget) -> Result<(), Stagin
                     }
                 )));
             }
-            Ok(Existing::Ours(_)) => {}
+            Ok(Existing::Ours(..)) => {}
             Err(found) => {
                 // The files of someone else's in an output of ours say what to do already.
                 let advice = if found.ends_with(UNLISTED_ADVICE) {
@@ -708,7 +730,7 @@ impl Staging {
             // old name any more): a folder that was empty when the run began may have been
             // given files since (someone saving to a shared drive); it is put back untouched.
             match existing_output(&self.previous) {
-                Ok(Existing::Ours(_)) => {}
+                Ok(Existing::Ours(..)) => {}
                 Ok(Existing::Empty) => was_empty = true,
                 Err(found) => {
                     fs::rename(&self.previous, &self.final_dir).map_err(io(&self.previous))?;

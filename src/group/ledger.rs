@@ -104,11 +104,22 @@ pub fn resolve_dir(
             let programs = default_dir(&program_out);
             let existing =
                 std::fs::symlink_metadata(programs.join(LEDGER_FILE)).is_ok_and(|m| m.is_file());
-            return Ok(if existing {
-                programs
-            } else {
-                default_dir(out_dir)
-            });
+            if !existing {
+                return Ok(default_dir(out_dir));
+            }
+            // `--out reports.ledger/x`: the run would stage its output in the program's ledger
+            // folder, fail there, and leave a lock file that made every later run refuse the
+            // ledger (exit 6). (Every other place is judged by the output folder's own checks.)
+            let lexical = crate::program::load::lexical;
+            if lexical(&cwd.join(out_dir)).starts_with(lexical(&programs)) {
+                return Err(format!(
+                    "--out {}: the output folder would be inside the program's ledger folder {}, \
+                     which holds the ledger's files only; name an output folder outside it",
+                    out_dir.display(),
+                    programs.display()
+                ));
+            }
+            return Ok(programs);
         }
     };
     let root = cwd.join(&program.root);

@@ -184,8 +184,8 @@ impl Methods {
             ),
             small_groups: format!(
                 "A group with fewer than {min} participants who started is not shown on its \
-                 own; such groups are reported together as one combined group (with the \
-                 next-smallest group added if needed to reach {min})."
+                 own, nor named; such groups are reported together as one combined group (with \
+                 the next-smallest group added if needed to reach {min})."
             ),
         }
     }
@@ -831,10 +831,14 @@ pub(super) fn build(
         for (v, rs) in &by_value {
             let is_merged = merged.contains(v);
             let small = started_of(rs) < min64;
+            if small {
+                // A small group is neither shown nor named: its heading alone ("Site: Executive
+                // suite — withheld") told the sponsor that someone there takes part, and a
+                // group value may be a person's name.
+                continue;
+            }
             let withheld = if !is_merged {
                 None
-            } else if small {
-                Some(withheld_note(min))
             } else {
                 Some(format!(
                     "reported with smaller groups in “{combined_label}”"
@@ -870,7 +874,12 @@ pub(super) fn build(
                 label: combined_label.clone(),
                 key: Some(key.clone()),
                 value: None,
-                members: merged.iter().map(label_of).collect(),
+                // Only the groups large enough to be named; the small ones stay unnamed.
+                members: merged
+                    .iter()
+                    .filter(|v| started_of(&by_value[*v]) >= min64)
+                    .map(label_of)
+                    .collect(),
                 combined_into: None,
                 withheld: None,
                 raw: Some(raw_section(&rs, &weeks, &index)),

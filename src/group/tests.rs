@@ -514,21 +514,20 @@ fn three_sites_small_site_is_merged_and_nothing_is_recoverable() {
     let secs = &report.splits[0].sections;
     let by_label: HashMap<&str, &Section> = secs.iter().map(|s| (s.label.as_str(), s)).collect();
     assert!(by_label["Kiln Row"].stats.is_some());
-    for small in ["Mill Street", "Harbour Yard"] {
-        let s = by_label[small];
-        assert!(s.stats.is_none(), "{small} must not be shown on its own");
-        assert_eq!(
-            s.combined_into.as_deref(),
-            Some("Other site groups combined")
-        );
-    }
-    assert_eq!(
-        by_label["Mill Street"].withheld.as_deref(),
-        Some("fewer than 11 participants — withheld")
+    let s = by_label["Harbour Yard"];
+    assert!(
+        s.stats.is_none(),
+        "Harbour Yard must not be shown on its own"
     );
+    assert_eq!(
+        s.combined_into.as_deref(),
+        Some("Other site groups combined")
+    );
+    // The small site is reported in the combined group, but not named anywhere.
+    assert!(!by_label.contains_key("Mill Street"));
     let comb = by_label["Other site groups combined"];
     assert_eq!(comb.kind, SectionKind::Combined);
-    assert_eq!(comb.members, vec!["Harbour Yard", "Mill Street"]);
+    assert_eq!(comb.members, vec!["Harbour Yard"]);
     assert_eq!(val(&comb.stats.as_ref().unwrap().enrolment.started), 29);
     check(&rows, &opts(11, &["site"]));
 }
@@ -590,7 +589,54 @@ fn one_small_site_among_many_is_merged_with_the_next_smallest() {
     }
     let r = summarize(&rows, &opts(11, &["site"]));
     let comb = r.splits[0].sections.last().unwrap();
-    assert_eq!(comb.members, vec!["B", "D"]);
+    assert_eq!(comb.members, vec!["B"]);
+    check(&rows, &opts(11, &["site"]));
+}
+
+#[test]
+fn small_groups_are_not_named_anywhere_in_the_group_report() {
+    // A site of one whose value is a person's name, and a team of two: the report said
+    // "Site: Wren Castellano-Dufay — fewer than 11 participants — withheld" and listed both
+    // among the combined group's members, so the sponsor learnt that they take part.
+    let mut rows = Vec::new();
+    for (site, n) in [
+        ("Kiln Row", 30),
+        ("Harbour Yard", 14),
+        ("Wren Castellano-Dufay", 1),
+        ("Board Office", 2),
+    ] {
+        for i in 0..n {
+            rows.push(person(site, 80.0 + i as f64, Some(78.0 + i as f64)));
+        }
+    }
+    let r = summarize(&rows, &opts(11, &["site"]));
+    let labels: Vec<(&str, Vec<String>, Option<u64>)> = r.splits[0]
+        .sections
+        .iter()
+        .map(|s| {
+            (
+                s.label.as_str(),
+                s.members.clone(),
+                s.stats.as_ref().map(|st| val(&st.enrolment.started)),
+            )
+        })
+        .collect();
+    assert_eq!(
+        labels,
+        [
+            ("Harbour Yard", vec![], None),
+            ("Kiln Row", vec![], Some(30)),
+            (
+                "Other site groups combined",
+                vec!["Harbour Yard".to_string()],
+                Some(17)
+            ),
+        ]
+    );
+    let json = serde_json::to_string(&r).unwrap();
+    for name in ["Wren Castellano-Dufay", "Board Office"] {
+        assert!(!json.contains(name), "{name} is named in the group report");
+    }
     check(&rows, &opts(11, &["site"]));
 }
 

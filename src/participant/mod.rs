@@ -73,6 +73,150 @@ impl LoadedParticipant {
     }
 }
 
+/// Smallest `weights.csv` compared across participants by [`same_weigh_ins`]: about five
+/// weigh-ins, so two people's identical files are not a coincidence of one or two rows.
+pub const SAME_WEIGHTS_MIN_BYTES: u64 = 100;
+
+/// Participants whose `weights.csv` is byte for byte another participant's: one person's data
+/// in two folders (enrolled twice under two ids, or a folder copied for a new participant and
+/// not emptied). Both were reported and counted in the group figures as two people, so a group
+/// of ten could pass as eleven. Returns an error for each of them (in the order given), naming
+/// the other folders; `check` and `run` both use it, and a run leaves them out of the group
+/// figures. `participants` is (id, files read) in id order.
+pub fn same_weigh_ins<'a>(
+    participants: impl IntoIterator<Item = (&'a str, &'a [InputFile])>,
+) -> Vec<Diagnostic> {
+    let mut by_hash: std::collections::BTreeMap<&str, Vec<(&str, &str)>> =
+        std::collections::BTreeMap::new();
+    for (id, files) in participants {
+        let weights = files.iter().find(|f| {
+            f.bytes >= SAME_WEIGHTS_MIN_BYTES
+                && f.path
+                    .rsplit('/')
+                    .next()
+                    .is_some_and(|n| n.eq_ignore_ascii_case("weights.csv"))
+        });
+        if let Some(f) = weights {
+            by_hash
+                .entry(f.blake3.as_str())
+                .or_default()
+                .push((id, f.path.as_str()));
+        }
+    }
+    let mut out = Vec::new();
+    for same in by_hash.values().filter(|v| v.len() > 1) {
+        for &(id, path) in same {
+            let others: Vec<&str> = same
+                .iter()
+                .filter(|(o, _)| *o != id)
+                .map(|(_, p)| *p)
+                .collect();
+            out.push((
+                id,
+                Diagnostic::error(
+                    path,
+                    format!(
+                        "the same weigh-ins as {} (the files are identical): one person's data in \
+                         more than one participant folder; none of them is counted in the group \
+                         report",
+                        others.join(", ")
+                    ),
+                )
+                .participant(id)
+                .expected("each participant's own weigh-ins")
+                .found(format!("a copy of {}", others.join(", ")))
+                .hint(
+                    "a participant enrolled twice, or a folder copied for a new participant: keep \
+                     the person's data in one folder and remove or correct the other (their own \
+                     reports are still written)",
+                ),
+            ));
+        }
+    }
+    out.sort_by(|a, b| a.0.cmp(b.0));
+    out.into_iter().map(|(_, d)| d).collect()
+}
+
+/// Most days an enrolment may come before `program.start` (sign-ups before the first session);
+/// an earlier date is a typing error in the year (common practice: a program's enrolment opens
+/// weeks, not years, before it starts).
+pub const MAX_ENROLLED_BEFORE_START_DAYS: i64 = 365;
+
+/// An error on `enrolled` when it is more than [`MAX_ENROLLED_BEFORE_START_DAYS`] before the
+/// program's start: `1926-04-01` for `2026-04-01` was read without a word, and every "since
+/// enrolment" figure (weeks, adherence, attendance) ran over a century of empty weeks (an 8 MB
+/// PDF of blank weekly rows; its weeks fell outside the group's week-by-week means).
+fn enrolled_long_before_start(
+    enrolled: NaiveDate,
+    start: NaiveDate,
+    ctx: &FileCtx,
+    line: Option<u64>,
+) -> Option<Diagnostic> {
+    let days = (start - enrolled).num_days();
+    if days <= MAX_ENROLLED_BEFORE_START_DAYS {
+        return None;
+    }
+    let mut d = ctx
+        .error(format!(
+            "enrolment date {enrolled} is {} days before the program starts ({start}); the \
+             participant cannot be used",
+            crate::diag::thousands(days as usize)
+        ))
+        .field("enrolled")
+        .expected(format!(
+            "an enrolment date at most {MAX_ENROLLED_BEFORE_START_DAYS} days before {start}"
+        ))
+        .found(enrolled.to_string())
+        .hint("check the year");
+    if let Some(l) = line {
+        d = d.at(l, None);
+    }
+    Some(d)
+}
+
+/// Plausible BMI, kg/m², of the median weigh-in at the profile's height (common practice: below
+/// 12 an adult does not live for long, above 150 nobody has been recorded; outside it, the
+/// height or the weights are wrong).
+pub const BMI_PLAUSIBLE: (f64, f64) = (12.0, 150.0);
+
+/// An error on the profile's height when the median weigh-in gives a BMI outside
+/// [`BMI_PLAUSIBLE`].
+fn implausible_bmi(
+    p: &cohortpress_metric_api::Profile,
+    weights: &[cohortpress_metric_api::WeighIn],
+    ctx: &FileCtx,
+    height_line: Option<u64>,
+) -> Option<Diagnostic> {
+    if weights.is_empty() {
+        return None;
+    }
+    let mut kg: Vec<f64> = weights.iter().map(|w| w.weight.kg()).collect();
+    kg.sort_by(f64::total_cmp);
+    let median = kg[kg.len() / 2];
+    let m = p.height.cm() / 100.0;
+    let bmi = median / (m * m);
+    if (BMI_PLAUSIBLE.0..=BMI_PLAUSIBLE.1).contains(&bmi) {
+        return None;
+    }
+    let mut d = ctx
+        .error(format!(
+            "a height of {:.0} cm with weigh-ins around {median:.1} kg gives a BMI of {bmi:.1}, \
+             which no adult has; the participant cannot be used",
+            p.height.cm()
+        ))
+        .field("height")
+        .expected(format!(
+            "a height that gives the weigh-ins a BMI between {} and {}",
+            BMI_PLAUSIBLE.0, BMI_PLAUSIBLE.1
+        ))
+        .found(format!("{:.0} cm", p.height.cm()))
+        .hint("check the height (a typing error, or inches written as cm) and the weights' unit");
+    if let Some(l) = height_line {
+        d = d.at(l, None);
+    }
+    Some(d)
+}
+
 /// Lists the participant folders under `ROOT/participants/`, sorted by name. Entries that are not
 /// usable folders (bad names, files, links) are reported as diagnostics.
 pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
@@ -522,6 +666,7 @@ pub fn load_opened(
     let pctx = FileCtx::new(id, rel(&profile_name));
     note_case(&pctx, &profile_name, PROFILE_FILE);
     let mut enrolled_line = None;
+    let mut height_line = None;
     let profile = match read_input(
         &handle,
         &profile_name,
@@ -543,6 +688,7 @@ pub fn load_opened(
         Some(Err(())) => None,
         Some(Ok(text)) => {
             enrolled_line = crate::program::load::key_line(&text, "enrolled");
+            height_line = crate::program::load::key_line(&text, "height");
             profile::parse_profile(&text, id, &program.info.targets, &pctx, &mut diags)
         }
     };
@@ -588,6 +734,22 @@ pub fn load_opened(
     let sessions = csv_file!(records::SESSIONS, records::parse_sessions);
     let labs = csv_file!(records::LABS, records::parse_labs);
 
+    // Height and weight each in range can still give a BMI no adult has (250 cm typed for
+    // 150 cm): every BMI, its WHO class and the clinical flags built on it would be wrong.
+    let mut profile_usable = profile_usable;
+    if let Some(p) = profile.as_ref().filter(|_| profile_usable)
+        && let Some(d) =
+            enrolled_long_before_start(p.enrolled, program.info.start, &pctx, enrolled_line)
+    {
+        diags.push(d);
+        profile_usable = false;
+    }
+    if let Some(p) = profile.as_ref().filter(|_| profile_usable)
+        && let Some(d) = implausible_bmi(p, &weights, &pctx, height_line)
+    {
+        diags.push(d);
+        profile_usable = false;
+    }
     let data = match profile {
         Some(profile) if profile_usable => Some(ParticipantData {
             profile,

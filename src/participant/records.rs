@@ -28,6 +28,13 @@ pub const WEIGHT_KG_RANGE: (f64, f64) = (25.0, 350.0);
 /// as kilojoules (refused until the header says which): adults' logged intake is rarely above
 /// 4,500 kcal a day, while 4,500 kJ is about 1,075 kcal (common practice).
 pub const KJ_LIKE_MEDIAN_KCAL: f64 = 4_500.0;
+/// A `kcal` column (named so, or `Energy (kcal)`) whose daily totals have a median above this
+/// many is refused as kilojoules under a kcal header: no adult in a weight-management program
+/// logs over 6,000 kcal a day for weeks, while 6,000 kJ is about 1,430 kcal, below what most
+/// adults eat (common practice).
+pub const KJ_LIKE_MEDIAN_NAMED_KCAL: f64 = 6_000.0;
+/// Kilojoules in a kilocalorie: 4.184 (thermochemical calorie, exact by definition).
+pub const KJ_PER_KCAL: f64 = 4.184;
 /// Plausible logged intake per day, kcal: above 0 and at most this (common practice).
 pub const MAX_KCAL_PER_DAY: f64 = 10_000.0;
 /// Most minutes one activity row, or one day's rows together, can hold: 16 waking hours
@@ -44,6 +51,20 @@ pub const UNIT_SWAP_WINDOW_DAYS: i64 = 14;
 /// Earlier weigh-ins a weigh-in is also compared with, in date order, for stretches written in
 /// the other unit (program choice: five is a working week of daily weigh-ins).
 pub const UNIT_SWAP_PREVIOUS: usize = 5;
+
+/// Two weigh-ins at most [`PEOPLE_MIX_MAX_DAYS`] apart that differ by more than this share of
+/// the lower one are not one person's (common practice: body weight varies by 1–3 % within a
+/// day, from water and food; 10 % leaves room for a stomach bug and a scale in the wrong unit
+/// of its own).
+pub const PEOPLE_MIX_JUMP: f64 = 0.10;
+/// Days apart (calendar days) within which [`PEOPLE_MIX_JUMP`] applies.
+pub const PEOPLE_MIX_MAX_DAYS: i64 = 1;
+/// A weights file is taken for more than one person's when at least this many neighbouring
+/// weigh-ins jump by [`PEOPLE_MIX_JUMP`] …
+pub const PEOPLE_MIX_MIN_JUMPS: usize = 3;
+/// … and the jumps are at least this share of the neighbouring pairs (one typing error gives
+/// two jumps, in and out, and is left to the trend's outlier screen).
+pub const PEOPLE_MIX_MIN_SHARE: f64 = 0.10;
 
 /// The days a participant's data may fall on.
 #[derive(Debug, Clone, Copy)]
@@ -571,6 +592,11 @@ pub fn parse_weights(
     }
     diags.extend(by_previous.into_iter().map(|(_, d)| d));
 
+    if let Some(d) = mixed_people(&rows, &kg, wcol, ctx) {
+        diags.push(d);
+        return None;
+    }
+
     let mut out = Vec::new();
     for (r, kg) in rows.into_iter().zip(kg) {
         if !plausible_kg(kg) {
@@ -606,6 +632,72 @@ pub fn parse_weights(
     Some(out)
 }
 
+/// A weights file that holds more than one person's weigh-ins: a scale several people share
+/// exports all of them, and a file copied from the wrong folder is added to the right one.
+/// Read as one person's, their mean made the baseline (95 kg and 62 kg on the first day gave
+/// 78 kg), the trend swung between them, and the report gave a wrong BMI class and a "fast
+/// loss" flag, without a word. Neighbouring weigh-ins (at most [`PEOPLE_MIX_MAX_DAYS`] apart,
+/// in date and time order, plausible values in kg after the unit check) that differ by more
+/// than [`PEOPLE_MIX_JUMP`] are counted; when they are many, the file is refused at the first.
+fn mixed_people(
+    rows: &[Parsed<RawWeight>],
+    kg: &[f64],
+    wcol: Option<u64>,
+    ctx: &FileCtx,
+) -> Option<Diagnostic> {
+    let mut order: Vec<usize> = (0..rows.len()).filter(|&i| plausible_kg(kg[i])).collect();
+    order.sort_by(|&a, &b| {
+        (rows[a].date, &rows[a].value.time, rows[a].line).cmp(&(
+            rows[b].date,
+            &rows[b].value.time,
+            rows[b].line,
+        ))
+    });
+    let (mut pairs, mut jumps) = (0usize, 0usize);
+    let mut first = None;
+    for w in order.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        if (rows[b].date - rows[a].date).num_days() > PEOPLE_MIX_MAX_DAYS {
+            continue;
+        }
+        pairs += 1;
+        if kg[a].max(kg[b]) > kg[a].min(kg[b]) * (1.0 + PEOPLE_MIX_JUMP) {
+            jumps += 1;
+            first.get_or_insert((a, b));
+        }
+    }
+    if jumps < PEOPLE_MIX_MIN_JUMPS || (jumps as f64) < PEOPLE_MIX_MIN_SHARE * pairs as f64 {
+        return None;
+    }
+    let (a, b) = first.expect("at least one jump");
+    let at = |i: usize| {
+        let r = &rows[i];
+        match &r.value.time {
+            Some(t) => format!("{:.1} kg on {} {t} (line {})", kg[i], r.date, r.line),
+            None => format!("{:.1} kg on {} (line {})", kg[i], r.date, r.line),
+        }
+    };
+    let pct = (PEOPLE_MIX_JUMP * 100.0).round();
+    Some(
+        ctx.error(format!(
+            "{jumps} of {pairs} weigh-ins taken within a day of the one before differ from it by \
+             more than {pct} %; body weight does not change that fast, so the file seems to hold \
+             more than one person's weigh-ins and is not used"
+        ))
+        .at(rows[b].line, wcol)
+        .field("weight")
+        .expected(format!(
+            "one person's weigh-ins, each within {pct} % of the one before it in the same or the \
+             next day"
+        ))
+        .found(format!("{} after {}", at(b), at(a)))
+        .hint(
+            "a scale several people share exports everyone's weigh-ins: keep only this \
+             participant's rows (or fix the values), then run again",
+        ),
+    )
+}
+
 #[derive(Debug, Clone)]
 struct RawIntake {
     kcal: f64,
@@ -637,8 +729,7 @@ pub fn parse_intake(
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let mut kcal = c.number("kcal", d)?;
         if c.table.header_unit("kcal") == Some("kj") {
-            // 1 kcal = 4.184 kJ (thermochemical calorie, exact by definition).
-            kcal /= 4.184;
+            kcal /= KJ_PER_KCAL;
         }
         if kcal < 0.0 {
             d.push(
@@ -720,6 +811,33 @@ pub fn parse_intake(
                 .expected(format!("kcal, with daily totals mostly below {}", crate::diag::thousands(KJ_LIKE_MEDIAN_KCAL as usize)))
                 .found(format!("`{written}`, median daily total {}", crate::diag::thousands(m.round() as usize)))
                 .hint(format!("write the unit in the header: `{written} (kJ)` or `{written} (kcal)`")),
+            );
+            return None;
+        }
+    }
+    // A column that says kcal but holds kilojoules (a kJ export whose header was renamed, or a
+    // template filled in with kJ): daily totals far above what anyone logs for weeks. Only the
+    // days over 10,000 were dropped, and the report said "Intake you logged (average) 8,830
+    // kcal/day".
+    if kcol.is_some() && table.header_unit("kcal") != Some("kj") && days.len() >= 3 {
+        let written = table.written_as("kcal").unwrap_or("kcal");
+        let mut totals: Vec<f64> = days.values().map(|d| d.kcal).collect();
+        let m = median(&mut totals);
+        if m > KJ_LIKE_MEDIAN_NAMED_KCAL {
+            let median = crate::diag::thousands(m.round() as usize);
+            diags.push(
+                ctx.error(format!(
+                    "the daily totals of column `{written}` have a median of {median} kcal, which nobody logs for weeks; they look like kilojoules ({median} kJ is about {} kcal); the file is not used",
+                    crate::diag::thousands((m / KJ_PER_KCAL).round() as usize)
+                ))
+                .at(table.header_line, kcol)
+                .field("kcal")
+                .expected(format!(
+                    "kcal, with daily totals mostly below {}",
+                    crate::diag::thousands(KJ_LIKE_MEDIAN_NAMED_KCAL as usize)
+                ))
+                .found(format!("`{written}`, median daily total {median}"))
+                .hint("if the values are kilojoules, say so in the header (`Energy (kJ)`), and they are converted; if they are kcal, check the export"),
             );
             return None;
         }
@@ -862,7 +980,26 @@ pub fn parse_activity(
         Some((activity, minutes, met, met_source, steps))
     });
     let acol = table.column("activity");
-    for (label, (n, first)) in &unknown {
+    // Each unknown label gets its own warning with suggestions, up to the diagnostics kept of
+    // one kind: the labels of most rows. The rest are counted in one warning (a file of 49,000
+    // distinct labels spent seconds on suggestions nobody would read, one warning each).
+    let mut ranked: Vec<(&String, &(usize, u64))> = unknown.iter().collect();
+    ranked.sort_by(|a, b| b.1.0.cmp(&a.1.0).then(a.1.1.cmp(&b.1.1)));
+    let rest = ranked.split_off(ranked.len().min(crate::limits::MAX_DIAGNOSTICS_PER_KIND));
+    ranked.sort_by(|a, b| a.0.cmp(b.0));
+    let more = rest.iter().map(|(_, (_, l))| *l).min().map(|first| {
+        let rows: usize = rest.iter().map(|(_, (n, _))| n).sum();
+        ctx.warning(format!(
+                "{} more unknown activities in {} rows (first at line {first}); without a MET value these rows are dropped",
+                crate::diag::thousands(rest.len()),
+                crate::diag::thousands(rows)
+            ))
+            .at(first, acol)
+            .field("activity")
+            .expected("an activity the tool knows, a label from program.yaml's `activities:`, or any label with a `met` value")
+            .hint("the labels of most rows are listed one by one above; check that this is an activity file, and add a `met` column")
+    });
+    for (label, (n, first)) in ranked {
         let near = activities::suggestions(label, &opts.activities, 3)
             .iter()
             .map(|s| format!("`{s}`"))
@@ -888,6 +1025,7 @@ pub fn parse_activity(
             )),
         );
     }
+    diags.extend(more);
     note_identical_same_day(&rows, "activity", ctx);
     let rows = in_window(rows, w, &table, ctx, diags);
     table.describe(opts, ctx);

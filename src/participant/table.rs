@@ -644,6 +644,21 @@ fn read_records(
         );
         return None;
     }
+    // A column name is a field like any other: one of megabytes (a file without line ends or
+    // delimiters) is not a header, and every step below would copy and scan it.
+    if let Some(i) = header.iter().position(|f| f.len() > MAX_CSV_FIELD_BYTES) {
+        diags.push(
+            ctx.error(format!(
+                "a header field of {} bytes is longer than the limit of {MAX_CSV_FIELD_BYTES}; the file cannot be used",
+                header[i].len()
+            ))
+            .at(header_line, Some(i as u64 + 1))
+            .expected(format!("columns {}", column_list(spec)))
+            .found(format!("`{}…`", header[i].chars().take(40).collect::<String>()))
+            .hint("check it is the right file, with line ends, and that its first row names the columns"),
+        );
+        return None;
+    }
     let written: Vec<String> = header.iter().map(|h| h.trim().to_string()).collect();
     let names: Vec<String> = written.iter().map(|h| h.to_lowercase()).collect();
     let user_map = opts.columns.get(spec.kind());
@@ -1831,6 +1846,44 @@ mod tests {
         assert_eq!(d.len(), 1);
         assert_eq!((d[0].line, d[0].column), (Some(2), Some(4)));
         assert!(d[0].found.as_ref().unwrap().len() < 60, "{}", d[0]);
+    }
+
+    #[test]
+    fn a_header_field_over_the_field_limit_refuses_the_file_and_is_not_quoted_whole() {
+        // A file with no line end and no delimiter is one header field: it was taken as a
+        // column name, and "missing required columns" quoted all of it (60 MB in the log, the
+        // data-quality list and the partial result).
+        let opts = CsvOptions::default();
+        let one_field = "a".repeat(MAX_CSV_FIELD_BYTES + 1);
+        let (t, d) = read(&one_field, &opts);
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!((d[0].line, d[0].column), (Some(1), Some(1)));
+        assert_eq!(
+            d[0].message,
+            "a header field of 4097 bytes is longer than the limit of 4096; the file cannot be used"
+        );
+        assert_eq!(
+            d[0].found.as_deref(),
+            Some(format!("`{}…`", "a".repeat(40)).as_str())
+        );
+        // Many long column names, none of ours: the list of what was found is cut.
+        let names: Vec<String> = (0..200)
+            .map(|i| format!("column number {i:03} of an export"))
+            .collect();
+        let (t, d) = read(&format!("{}\n", names.join(",")), &opts);
+        assert!(t.is_none());
+        let found = d[0].found.as_deref().unwrap();
+        // `a,b,…` of 200 names of 30 characters: 6,201 characters, of which 1,000 are kept.
+        assert!(
+            found.starts_with("`column number 000 of an export,column number 001 of"),
+            "{found}"
+        );
+        assert!(found.ends_with("… (5,201 more characters)"), "{found}");
+        assert_eq!(
+            found.chars().count(),
+            1000 + "… (5,201 more characters)".chars().count()
+        );
     }
 
     #[test]

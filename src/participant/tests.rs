@@ -290,3 +290,125 @@ fn a_folder_swapped_for_a_link_after_listing_is_not_followed() {
     assert_eq!(d.file, "participants/P1");
     assert!(d.message.contains("symbolic link"), "{d}");
 }
+
+#[test]
+fn identical_weights_files_of_two_participants_are_errors_for_both() {
+    let file = |id: &str, name: &str, hash: &str, bytes: u64| InputFile {
+        path: format!("participants/{id}/{name}"),
+        blake3: hash.into(),
+        bytes,
+    };
+    let a = vec![
+        file("A-1", "weights.csv", "h1", 400),
+        file("A-1", "intake.csv", "i", 900),
+    ];
+    let b = vec![file("B-2", "Weights.CSV", "h1", 400)];
+    let c = vec![file("C-3", "weights.csv", "h2", 400)];
+    // Identical but short (one or two rows may coincide): not compared.
+    let d = vec![file("D-4", "weights.csv", "h3", 60)];
+    let e = vec![file("E-5", "weights.csv", "h3", 60)];
+    // The same intake file alone is no evidence (several people may log nothing new).
+    let f = vec![file("F-6", "intake.csv", "i", 900)];
+    let got = same_weigh_ins([
+        ("A-1", a.as_slice()),
+        ("B-2", b.as_slice()),
+        ("C-3", c.as_slice()),
+        ("D-4", d.as_slice()),
+        ("E-5", e.as_slice()),
+        ("F-6", f.as_slice()),
+    ]);
+    let brief: Vec<(Option<&str>, &str, &str)> = got
+        .iter()
+        .map(|d| {
+            (
+                d.participant.as_deref(),
+                d.file.as_str(),
+                d.found.as_deref().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(
+        brief,
+        [
+            (
+                Some("A-1"),
+                "participants/A-1/weights.csv",
+                "a copy of participants/B-2/Weights.CSV"
+            ),
+            (
+                Some("B-2"),
+                "participants/B-2/Weights.CSV",
+                "a copy of participants/A-1/weights.csv"
+            ),
+        ]
+    );
+    assert!(got.iter().all(|d| d.severity == Severity::Error));
+}
+
+#[test]
+fn a_height_that_gives_the_weigh_ins_an_impossible_bmi_is_an_error_at_its_line() {
+    // 250 cm typed for 150 cm: each value is in range, the BMI of 61 kg at 2.5 m is 9.8, and
+    // the report printed "BMI 9.8 … underweight" with a clinical flag.
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights = b"date,weight,unit\n2026-04-02,61.2,kg\n2026-04-09,60.9,kg\n2026-04-16,61.4,kg\n";
+    let tall = PROFILE.replace("180 cm", "250 cm");
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[("profile.yaml", tall.as_bytes()), ("weights.csv", weights)],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_none());
+    assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
+    let e = &lp.diagnostics[0];
+    assert_eq!(e.severity, Severity::Error);
+    assert_eq!(
+        (e.file.as_str(), e.line),
+        ("participants/P1/profile.yaml", Some(4))
+    );
+    assert_eq!(
+        e.message,
+        "a height of 250 cm with weigh-ins around 61.2 kg gives a BMI of 9.8, which no adult \
+         has; the participant cannot be used"
+    );
+    // The same weigh-ins at 150 cm (BMI 27.2) are used.
+    let fine = PROFILE.replace("180 cm", "150 cm");
+    fs::write(dir.path.join("profile.yaml"), fine).unwrap();
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
+    assert_eq!(lp.data.unwrap().weights.len(), 3);
+}
+
+#[test]
+fn an_enrolment_more_than_a_year_before_the_program_starts_is_an_error_at_its_line() {
+    // `1926-04-01` for `2026-04-01`: every "since enrolment" figure ran over a century.
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights: &[u8] = b"date,weight,unit\n2026-04-02,80.1,kg\n2026-04-09,79.8,kg\n";
+    let early = PROFILE.replace("enrolled: 2026-04-01", "enrolled: 2025-03-31");
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[("profile.yaml", early.as_bytes()), ("weights.csv", weights)],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_none());
+    assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
+    let e = &lp.diagnostics[0];
+    assert_eq!(
+        (e.file.as_str(), e.line),
+        ("participants/P1/profile.yaml", Some(5))
+    );
+    assert_eq!(
+        e.message,
+        "enrolment date 2025-03-31 is 366 days before the program starts (2026-04-01); the \
+         participant cannot be used"
+    );
+    // A sign-up up to a year before the start is read.
+    let fine = PROFILE.replace("enrolled: 2026-04-01", "enrolled: 2025-04-01");
+    fs::write(dir.path.join("profile.yaml"), fine).unwrap();
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
+    assert_eq!(lp.data.unwrap().profile.enrolled.to_string(), "2025-04-01");
+}

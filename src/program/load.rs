@@ -142,6 +142,14 @@ fn lexical_state_problem(
         Some("the program folder itself".into())
     } else if inside(out) {
         Some("inside the output folder, which every run replaces".into())
+    } else if lexical(&root.join(out)).starts_with(&state) {
+        // `--out reports.ledger/x`: the run staged its output in the ledger folder, and the
+        // lock file it left there made every later run refuse the ledger (exit 6).
+        Some(
+            "around the output folder: the output would be written inside the ledger folder, \
+             which holds the ledger's files only; name an output folder outside it"
+                .into(),
+        )
     } else {
         None
     }
@@ -276,6 +284,24 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 err("report.group_by", "a group_by key is empty".into())
                     .field(format!("report.group_by[{i}]"))
                     .expected("a group attribute name such as `site`"),
+            );
+        } else if let Some(j) = def.report.group_by[..i]
+            .iter()
+            .position(|h| h.trim() == g.trim())
+        {
+            // `[site, site]` printed every site's section twice.
+            out.push(
+                err(
+                    "report.group_by",
+                    format!(
+                        "`{}` is listed twice (also at position {})",
+                        g.trim(),
+                        j + 1
+                    ),
+                )
+                .field(format!("report.group_by[{i}]"))
+                .expected("each group attribute once")
+                .found(g.clone()),
             );
         }
     }
@@ -807,6 +833,22 @@ input:
         assert_eq!(by("program.end").line, Some(6));
         assert_eq!(by("modules[1].id").line, Some(9));
         assert_eq!(by("input.delimiter").line, Some(17));
+    }
+
+    #[test]
+    fn a_group_by_key_listed_twice_is_an_error() {
+        let text = "format_version: 1
+program: { id: demo, title: Demo, start: 2026-04-01, end: 2026-09-30 }
+modules: [ {id: trend} ]
+report:
+  group_by: [site, team, ' site']
+";
+        let e = parse_program(root(), text).unwrap_err();
+        assert_eq!(e.len(), 1, "{e:#?}");
+        assert_eq!(e[0].field.as_deref(), Some("report.group_by[2]"));
+        assert_eq!(e[0].message, "`site` is listed twice (also at position 1)");
+        let ok = text.replace(", ' site'", "");
+        assert!(parse_program(root(), &ok).is_ok());
     }
 
     #[test]

@@ -224,8 +224,25 @@ fn tally(
     let mut all_diags: Vec<Diagnostic> = discovery.to_vec();
     let mut rows = Vec::new();
     let mut inputs: Vec<InputFile> = Vec::new();
+    // One person's weigh-ins in two folders: an error for each, and neither in the group step
+    // (their own reports are written).
+    let files: Vec<(String, Vec<InputFile>)> = records
+        .iter()
+        .filter(|r| r.summary.is_some())
+        .map(|r| (r.id.clone(), r.input_files()))
+        .collect();
+    let same =
+        crate::participant::same_weigh_ins(files.iter().map(|(id, f)| (id.as_str(), f.as_slice())));
+    let mut excluded = std::collections::BTreeSet::new();
     for r in records {
-        let diags = r.diagnostics();
+        let mut diags = r.diagnostics();
+        for d in same
+            .iter()
+            .filter(|d| d.participant.as_deref() == Some(r.id.as_str()))
+        {
+            diags.push(d.clone());
+            excluded.insert(r.id.as_str());
+        }
         if diags.iter().any(|d| d.severity == Severity::Error) {
             summary.participants_with_errors += 1;
         }
@@ -242,6 +259,9 @@ fn tally(
         // A usable participant has a summary row (and a report and tidy metrics).
         if let Some(s) = &r.summary {
             summary.reported += 1;
+            if excluded.contains(r.id.as_str()) {
+                continue;
+            }
             let mut row = s.to_summary();
             // Group-report ledger hook: a stable stand-in for the id (never shown).
             row.pseudonym = Some(group::pseudonym(&r.id));
@@ -264,6 +284,8 @@ fn tally(
                     .is_none_or(|p| !reported.contains(p));
                 let what = if left_out {
                     "participant left out: "
+                } else if same.contains(d) {
+                    "left out of the group report: "
                 } else {
                     "file not used: "
                 };
@@ -344,11 +366,12 @@ pub fn finish(
         let headline = report::group::headline(&g, &format!("{period_from} to {period_to}"));
         g.releases = ledger.earlier_headlines(&program_id, &period_to);
         g.releases.push(headline.clone());
-        // Who the group report leaves out: participants without a report (an unusable
-        // profile) and folders skipped by name. A participant with one unusable file is still
-        // reported and counted, so `participants_with_errors` (which counts them too, for the
-        // exit code) is not this number.
-        let left_out = summary.participants - summary.reported + summary.skipped_folders;
+        // Who the group report leaves out: participants without a row in it (an unusable
+        // profile, or one person's weigh-ins in two folders) and folders skipped by name. A
+        // participant with one unusable file is still reported and counted, so
+        // `participants_with_errors` (which counts them too, for the exit code) is not this
+        // number.
+        let left_out = summary.participants - rows.len() + summary.skipped_folders;
         let group_ctx = report::group_context(&plan.report_scope(), &g, left_out);
         let group_files = report::render_group(templates, &group_ctx, &plan.formats)
             .map_err(|e| RunError::Render(e.to_string()))?;

@@ -153,6 +153,7 @@ pub fn output_target(
         dir,
         program_root: program.root.clone(),
         participants_dir: crate::participant::PARTICIPANTS_DIR,
+        program_id: program.info.id.clone(),
         templates: program
             .def
             .report

@@ -85,6 +85,48 @@ fn files_of_someone_elses_in_an_output_folder_are_never_deleted() {
 }
 
 #[test]
+fn an_output_folder_of_another_program_is_never_replaced() {
+    // Two programs' cron lines with one --out: the second run replaced the first program's
+    // reports with its own, and the first sponsor's group report with the second's.
+    let t = ProgramTest::demo(3);
+    let out = out_dir(&t);
+    assert_eq!(run(&t, "html").code, 0);
+    let other = t.dir.parent().unwrap().join("other");
+    crate::harness::copy_tree(&t.dir, &other);
+    let yaml = fs::read_to_string(other.join("program.yaml")).unwrap();
+    let (head, tail) = yaml.split_once("  id: ").unwrap();
+    let rest = tail.split_once(' ').unwrap().1;
+    fs::write(
+        other.join("program.yaml"),
+        format!("{head}  id: other-program {rest}"),
+    )
+    .unwrap();
+    let before = tree_hashes(&out);
+    let o = t.run(&[
+        "run",
+        other.to_str().unwrap(),
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(
+        o.stderr.contains(
+            "it holds the output of another program, `steady-ground-2026` (this one is \
+             `other-program`)"
+        ),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(tree_hashes(&out), before, "nothing was replaced");
+    // The program's own next run still replaces its own output.
+    assert_eq!(run(&t, "html").code, 0);
+}
+
+#[test]
 fn the_group_report_names_only_the_participants_it_leaves_out() {
     let t = ProgramTest::demo(5);
     let out = out_dir(&t);
@@ -109,6 +151,48 @@ fn the_group_report_names_only_the_participants_it_leaves_out() {
         left_out_note(&out),
         "2 participant folders could not be used because of input errors and are not counted here; the run&#x27;s data-quality list (metrics/data-quality.csv) names the problems."
     );
+}
+
+#[test]
+fn one_persons_weigh_ins_in_two_folders_are_not_counted_twice() {
+    let t = ProgramTest::demo(5);
+    let out = out_dir(&t);
+    // A participant enrolled again under a new id, their folder copied: the group counted
+    // one person as two, without a word.
+    let copy = t.dir.join("participants/SG-006");
+    fs::create_dir(&copy).unwrap();
+    for e in fs::read_dir(t.dir.join("participants/SG-002")).unwrap() {
+        let e = e.unwrap();
+        fs::copy(e.path(), copy.join(e.file_name())).unwrap();
+    }
+    let profile = copy.join("profile.yaml");
+    let p = fs::read_to_string(&profile).unwrap();
+    fs::write(&profile, p.replace("id: SG-002", "id: SG-006")).unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check.stdout.contains(
+            "error: participants/SG-006/weights.csv: the same weigh-ins as \
+             participants/SG-002/weights.csv (the files are identical)"
+        ),
+        "{}",
+        check.stdout
+    );
+    let o = run(&t, "html");
+    assert_eq!(o.code, 4, "{o:?}");
+    assert!(out.join("participants/SG-002.html").exists());
+    assert!(out.join("participants/SG-006.html").exists());
+    assert_eq!(
+        left_out_note(&out),
+        "2 participant folders could not be used because of input errors and are not counted here; the run&#x27;s data-quality list (metrics/data-quality.csv) names the problems."
+    );
+    let dq = fs::read_to_string(out.join("metrics/data-quality.csv")).unwrap();
+    let rows: Vec<&str> = dq
+        .lines()
+        .filter(|l| l.contains("the same weigh-ins as"))
+        .map(|l| l.split(',').nth(1).unwrap())
+        .collect();
+    assert_eq!(rows, ["SG-002", "SG-006"]);
 }
 
 #[test]

@@ -423,3 +423,45 @@ fn the_ledger_needs_a_folder_of_its_own() {
     assert_eq!(names, ["notes.txt"], "nothing was added");
     assert!(!t.dir.join("reports").exists(), "nothing was published");
 }
+
+#[test]
+fn an_output_folder_inside_the_ledger_folder_is_refused_before_anything_is_written() {
+    // `--out reports.ledger/x`: the run staged its output in the program's ledger folder and
+    // failed there; the lock file it left made every later run refuse the ledger (exit 6).
+    let t = ProgramTest::fixture("report-small");
+    let o = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let ledger = t.dir.join("reports.ledger");
+    let before = tree_hashes(&ledger);
+    let inside = ledger.join("x");
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        inside.to_str().unwrap(),
+    ]);
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("would be inside the program's ledger folder"),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(
+        tree_hashes(&ledger),
+        before,
+        "nothing written in the ledger"
+    );
+    let names: Vec<String> = std::fs::read_dir(&ledger)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    assert!(!names.iter().any(|n| n.starts_with(".x")), "{names:?}");
+    // The program's next run is not locked out.
+    let o = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert_eq!(o.code, 0, "{o:?}");
+}

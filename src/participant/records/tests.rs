@@ -476,13 +476,31 @@ fn an_energy_column_without_a_unit_holding_kilojoules_is_refused() {
     assert_eq!(d[0].severity, Severity::Error);
     assert_eq!((d[0].line, d[0].column), (Some(1), Some(2)));
     assert!(d[0].message.contains("median 8,000"), "{}", d[0]);
-    // The unit in the header settles it either way; kcal-sized totals are read as kcal.
+    // A kJ header settles it; kcal-sized totals are read as kcal.
     let (v, d) = parse(&kj.replace("Energy", "Energy (kJ)"));
     assert!(d.is_empty(), "{d:#?}");
     assert_eq!(v.unwrap()[0].kcal, 8000.0 / 4.184);
-    let (v, d) = parse(&kj.replace("Energy", "kcal"));
+    // A header that says kcal over kilojoules (a kJ export renamed, a template filled in with
+    // kJ) printed "Intake you logged (average) 8,830 kcal/day": a median over 6,000 kcal a day
+    // is refused too, whatever the header calls it.
+    for header in ["kcal", "Calories", "Energy (kcal)"] {
+        let (v, d) = parse(&kj.replace("Energy", header));
+        assert!(v.is_none(), "{header}");
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!((d[0].line, d[0].column), (Some(1), Some(2)));
+        assert_eq!(
+            d[0].message,
+            format!(
+                "the daily totals of column `{header}` have a median of 8,000 kcal, which nobody \
+                 logs for weeks; they look like kilojoules (8,000 kJ is about 1,912 kcal); the \
+                 file is not used"
+            )
+        );
+    }
+    // A big eater's log under a kcal header is read: 5,500 a day.
+    let (v, d) = parse("date,kcal\n2026-04-01,5500\n2026-04-02,5400\n2026-04-03,5600\n");
     assert!(d.is_empty(), "{d:#?}");
-    assert_eq!(v.unwrap()[0].kcal, 8000.0);
+    assert_eq!(v.unwrap()[1].kcal, 5400.0);
     let (v, d) = parse("date,Energy\n2026-04-01,1800\n2026-04-02,2100\n2026-04-03,1900\n");
     assert!(d.is_empty(), "{d:#?}");
     assert_eq!(v.unwrap().len(), 3);
@@ -740,4 +758,87 @@ fn an_empty_weights_file_is_an_error_naming_the_file() {
         "{}",
         diags[0]
     );
+}
+
+#[test]
+fn a_weights_file_of_two_people_is_refused_at_the_first_jump() {
+    // A scale two people share: his weigh-ins in the morning (95 → 93 kg), hers in the
+    // evening (62 kg). Read as one person's, the first day's mean (78.5 kg) was the baseline.
+    let mut text = String::from("date,weight,unit,time\n");
+    for day in 1..=10 {
+        let his = 95.0 - 0.2 * f64::from(day);
+        text.push_str(&format!("2026-04-{day:02},{his:.1},kg,07:10\n"));
+        text.push_str(&format!("2026-04-{day:02},62.0,kg,21:30\n"));
+    }
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        &text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none(), "the file must not be used");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let e = &diags[0];
+    assert_eq!(e.severity, Severity::Error);
+    // 19 neighbouring pairs (all within a day), every one a jump of more than 10 %.
+    assert_eq!(
+        e.message,
+        "19 of 19 weigh-ins taken within a day of the one before differ from it by more than \
+         10 %; body weight does not change that fast, so the file seems to hold more than one \
+         person's weigh-ins and is not used"
+    );
+    assert_eq!((e.line, e.column), (Some(3), Some(2)));
+    assert_eq!(
+        e.found.as_deref(),
+        Some("62.0 kg on 2026-04-01 21:30 (line 3) after 94.8 kg on 2026-04-01 07:10 (line 2)")
+    );
+}
+
+#[test]
+fn one_mistyped_weigh_in_does_not_refuse_the_file() {
+    // 59.2 for 95.2: two jumps (in and out) among 19 pairs, left to the trend's outlier screen;
+    // and weigh-ins a week apart are never compared.
+    let mut text = String::from("date,weight,unit\n");
+    for day in 1..=20 {
+        let v = if day == 7 { 59.2 } else { 95.2 };
+        text.push_str(&format!("2026-04-{day:02},{v},kg\n"));
+    }
+    text.push_str(
+        "2026-05-01,62.0,kg\n2026-05-08,95.0,kg\n2026-05-15,62.0,kg\n2026-05-22,95.0,kg\n",
+    );
+    let (w, diags) = weights(&text);
+    assert_eq!(w.len(), 24);
+    assert!(diags.is_empty(), "{diags:#?}");
+}
+
+#[test]
+fn unknown_activities_past_the_first_twenty_labels_are_counted_in_one_warning() {
+    // 25 labels of one row each, then one label of three rows: the labels of most rows are
+    // named (the three-row one first among them), the other 6 are counted in one warning.
+    let mut text = String::from("date,activity,minutes\n");
+    for i in 0..25 {
+        text.push_str(&format!("2026-04-01,odd thing {i:02},30\n"));
+    }
+    for _ in 0..3 {
+        text.push_str("2026-04-02,zz most rows,30\n");
+    }
+    let (v, diags) = activity(&text);
+    assert!(v.is_empty());
+    assert_eq!(diags.len(), 21, "{diags:#?}");
+    let named: Vec<u64> = diags[..20].iter().map(|d| d.line.unwrap()).collect();
+    // Labels in label order: odd thing 00 … 18 (lines 2–20), then zz most rows (line 27).
+    assert_eq!(named[..19], (2..=20).collect::<Vec<u64>>()[..]);
+    assert_eq!(named[19], 27);
+    assert!(
+        diags[19]
+            .message
+            .contains("unknown activity `zz most rows` in 3 rows")
+    );
+    assert_eq!(
+        diags[20].message,
+        "6 more unknown activities in 6 rows (first at line 21); without a MET value these rows are dropped"
+    );
+    assert_eq!((diags[20].line, diags[20].column), (Some(21), Some(2)));
 }
