@@ -6,7 +6,7 @@
 //! file whose shape cannot be trusted (missing column) is an error. Every list comes out sorted
 //! by date.
 
-use super::quantity::number_prefix_len;
+use super::quantity::{MassUnit, WrittenMass, number_prefix_len, split_mass};
 use super::table::{Cells, CsvOptions, Dropped, FileCtx, Table, header_key, read_table};
 use crate::activities;
 use crate::diag::Diagnostic;
@@ -320,6 +320,40 @@ enum WeightUnit {
     Lb,
     /// The imperial stone of 14 lb (decimal stones, as British scales export them).
     St,
+    /// Stones and pounds (`14 st 2 lb`), the value held in pounds.
+    StLb,
+}
+
+impl From<MassUnit> for WeightUnit {
+    fn from(u: MassUnit) -> Self {
+        match u {
+            MassUnit::Kg => WeightUnit::Kg,
+            MassUnit::Lb => WeightUnit::Lb,
+            MassUnit::St => WeightUnit::St,
+        }
+    }
+}
+
+impl WeightUnit {
+    /// The unit as a file declares it: stones and pounds are stones.
+    fn mass_unit(self) -> MassUnit {
+        match self {
+            WeightUnit::Kg => MassUnit::Kg,
+            WeightUnit::Lb => MassUnit::Lb,
+            WeightUnit::St | WeightUnit::StLb => MassUnit::St,
+        }
+    }
+
+    /// `value` in this unit as written: `72.5 kg`, `14 st 2 lb`.
+    fn show(self, value: f64) -> String {
+        match self {
+            WeightUnit::StLb => {
+                let st = (value / LB_PER_STONE).floor();
+                format!("{st} st {} lb", value - st * LB_PER_STONE)
+            }
+            u => format!("{value} {}", u.mass_unit().symbol()),
+        }
+    }
 }
 
 #[derive(Debug, Clone)]
@@ -345,6 +379,7 @@ impl RawWeight {
             WeightUnit::Kg => self.value,
             WeightUnit::Lb => Mass::from_lb(self.value).kg(),
             WeightUnit::St => Mass::from_lb(LB_PER_STONE * self.value).kg(),
+            WeightUnit::StLb => Mass::from_lb(self.value).kg(),
         }
     }
 }
@@ -382,22 +417,104 @@ pub fn parse_weights(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<WeighIn>> {
     let table = read_table(text, &WEIGHTS, opts, ctx, diags)?;
+    // The first weight whose unit in the cell disagrees with the unit column or header: the
+    // file cannot say which is right, so it is not used.
+    let mut conflict: Option<Diagnostic> = None;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
-        let value = c.number("weight", d)?;
-        // The unit column, else a unit written in the weight column's header.
-        let unit_text = match c.text("unit").or(c.table.header_unit("weight")) {
-            Some(u) => u.to_string(),
-            None => c.required_text("unit", d)?,
-        };
-        let unit = match unit_text.to_lowercase().as_str() {
-            "kg" | "kgs" | "kilogram" | "kilograms" => WeightUnit::Kg,
-            "lb" | "lbs" | "pound" | "pounds" => WeightUnit::Lb,
-            "st" | "stone" | "stones" => WeightUnit::St,
-            _ => {
+        const DROP: &str = "the row is dropped";
+        let raw = c.required_text("weight", d)?;
+        // The weight, with the unit written in its cell (`72.5 kg`, `14 st 2 lb`) if any.
+        let (value, in_cell) = match split_mass(&raw) {
+            Some(WrittenMass::One(n, u)) => (
+                c.parse_number("weight", n, DROP, d)?,
+                u.map(WeightUnit::from),
+            ),
+            Some(WrittenMass::StonesPounds(st, lb)) => {
+                let (st, lb) = (
+                    c.parse_number("weight", st, DROP, d)?,
+                    c.parse_number("weight", lb, DROP, d)?,
+                );
+                if st < 0.0 || st.fract() != 0.0 || !(0.0..LB_PER_STONE).contains(&lb) {
+                    d.push(
+                        c.warn("weight", "unreadable stones and pounds; the row is dropped")
+                            .expected("whole stones and under 14 pounds, e.g. `14 st 2 lb`")
+                            .found(format!("`{raw}`"))
+                            .hint("write stones and pounds (`14 st 2 lb`) or decimal stones (`14.1 st`)"),
+                    );
+                    return None;
+                }
+                // Pounds in all: 14 st 2 lb is exactly 198 lb.
+                (st * LB_PER_STONE + lb, Some(WeightUnit::StLb))
+            }
+            Some(WrittenMass::UnknownUnit(u)) => {
                 d.push(
-                    c.warn("unit", "unknown weight unit; the row is dropped")
-                        .expected("`kg`, `lb` or `st` (decimal stones)")
-                        .found(format!("`{unit_text}`")),
+                    c.warn(
+                        "weight",
+                        "unknown weight unit in the cell; the row is dropped",
+                    )
+                    .expected("a weight with `kg`, `lb` or `st`, or a plain number")
+                    .found(format!("`{raw}` (unit `{u}`)")),
+                );
+                return None;
+            }
+            None => (c.number("weight", d)?, None),
+        };
+        // The unit column, else a unit written in the weight column's header.
+        let declared_text = c.text("unit").or(c.table.header_unit("weight"));
+        let declared = match declared_text {
+            None => None,
+            Some(t) => match MassUnit::parse(t) {
+                Some(u) => Some(u),
+                None => {
+                    d.push(
+                        c.warn("unit", "unknown weight unit; the row is dropped")
+                            .expected("`kg`, `lb` or `st` (decimal stones)")
+                            .found(format!("`{t}`")),
+                    );
+                    return None;
+                }
+            },
+        };
+        let unit = match (in_cell, declared) {
+            (Some(cell), Some(said)) if cell.mass_unit() != said => {
+                let by = if c.text("unit").is_some() {
+                    format!("the `unit` column says `{}`", declared_text.unwrap_or(""))
+                } else {
+                    format!(
+                        "the header `{}` says {}",
+                        c.table.written_header("weight").unwrap_or("weight"),
+                        said.symbol()
+                    )
+                };
+                conflict.get_or_insert_with(|| {
+                    c.ctx
+                        .error(format!(
+                            "the weight `{raw}` is written in {} but {by}; the file is not used, as it cannot say which unit its weights are in",
+                            cell.mass_unit().symbol()
+                        ))
+                        .at(c.row.line, c.table.column("weight"))
+                        .field("weight")
+                        .expected(format!(
+                            "weights in {} (the unit the file declares), with or without the unit in the cell",
+                            said.symbol()
+                        ))
+                        .found(format!("`{raw}`"))
+                        .hint("correct the cell or the unit; a unit written in the weight cells needs no `unit` column")
+                });
+                return None;
+            }
+            (Some(cell), _) => cell,
+            (None, Some(said)) => WeightUnit::from(said),
+            (None, None) => {
+                if c.table.column("unit").is_some() {
+                    // Pushes the "is empty" warning.
+                    return c.required_text("unit", d).and(None);
+                }
+                d.push(
+                    c.warn("weight", "the weight has no unit and the file has no `unit` column; the row is dropped")
+                        .expected("a weight with its unit, e.g. `72.5 kg` or `160 lb`")
+                        .found(format!("`{raw}`"))
+                        .hint("write the unit with every weight, or add a `unit` column"),
                 );
                 return None;
             }
@@ -424,6 +541,10 @@ pub fn parse_weights(
             source: c.text("source").map(str::to_string),
         })
     });
+    if let Some(e) = conflict {
+        diags.push(e);
+        return None;
+    }
     let rows: Vec<Parsed<RawWeight>> = rows
         .into_iter()
         .map(|mut r| {
@@ -491,11 +612,7 @@ pub fn parse_weights(
                 .field("weight")
                 .found(format!(
                     "`{v}` with unit `{}`",
-                    match r.value.unit {
-                        WeightUnit::Kg => "kg",
-                        WeightUnit::Lb => "lb",
-                        WeightUnit::St => "st",
-                    }
+                    r.value.unit.mass_unit().symbol()
                 ))
                 .hint("check the `unit` column of this row and correct it"),
         );
@@ -505,9 +622,8 @@ pub fn parse_weights(
     for (r, kg) in rows.into_iter().zip(kg) {
         if !plausible_kg(kg) {
             let shown = match r.value.unit {
-                WeightUnit::Kg => format!("`{}` kg", r.value.value),
-                WeightUnit::Lb => format!("`{}` lb", r.value.value),
-                WeightUnit::St => format!("`{}` st", r.value.value),
+                WeightUnit::StLb => format!("`{}`", r.value.unit.show(r.value.value)),
+                u => format!("`{}` {}", r.value.value, u.mass_unit().symbol()),
             };
             diags.push(
                 ctx.warning("implausible weight; the row is dropped")

@@ -140,6 +140,8 @@ pub struct Table {
     units: BTreeMap<&'static str, String>,
     /// Headers read as one of our columns under another name: (as written, our column).
     renamed: Vec<(String, &'static str)>,
+    /// Each of our columns' header as written.
+    headers: BTreeMap<&'static str, String>,
     /// Set when a number was read with a decimal comma.
     decimal_comma: Cell<bool>,
     /// Set when a number was read with thousands separators.
@@ -179,6 +181,11 @@ impl Table {
             .map(|(w, _)| w.as_str())
     }
 
+    /// The header of `col` as written (`Weight (kg)`).
+    pub fn written_header(&self, col: &str) -> Option<&str> {
+        self.headers.get(col).map(String::as_str)
+    }
+
     /// The unit written in the header of `col` (`Weight (lb)` → `lb`), lowercase.
     pub fn header_unit(&self, col: &str) -> Option<&str> {
         self.units.get(col).map(String::as_str)
@@ -215,6 +222,7 @@ impl Table {
             sniffed,
             units: BTreeMap::new(),
             renamed: Vec::new(),
+            headers: BTreeMap::new(),
             decimal_comma: Cell::new(false),
             thousands: Cell::new(false),
             timestamps: Cell::new(false),
@@ -744,7 +752,13 @@ fn read_records(
         })
         .copied()
         .collect();
-    if !missing.is_empty() {
+    // A unit column may also be stood for by units written in the value column's cells
+    // (`72.5 kg`): whether they are is known once the rows are read.
+    let units_in_cells: Option<&'static str> = spec.header_units.iter().find_map(|(v, _, r)| {
+        (columns.contains_key(v) && r.is_some() && missing.iter().all(|m| Some(*m) == *r))
+            .then_some(*v)
+    });
+    let missing_error = |missing: &[&str]| {
         let looks_like_data = names
             .first()
             .is_some_and(|f| parse_when(f, opts).is_some() || parse_decimal(f).is_ok());
@@ -764,32 +778,33 @@ fn read_records(
             )
         };
         let s = if missing.len() == 1 { "" } else { "s" };
-        diags.push(
-            ctx.error(format!(
-                "{}missing required column{s} {}; the file is not used",
-                if looks_like_data {
-                    "no header row: "
-                } else {
-                    ""
-                },
-                missing
-                    .iter()
-                    .map(|m| format!("`{m}`"))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            ))
-            .at(header_line, None)
-            .expected(format!("columns {}", column_list(spec)))
-            .found(format!("`{}`", written.join(&delim_text)))
-            .hint(hint),
-        );
+        ctx.error(format!(
+            "{}missing required column{s} {}; the file is not used",
+            if looks_like_data {
+                "no header row: "
+            } else {
+                ""
+            },
+            missing
+                .iter()
+                .map(|m| format!("`{m}`"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ))
+        .at(header_line, None)
+        .expected(format!("columns {}", column_list(spec)))
+        .found(format!("`{}`", written.join(&delim_text)))
+        .hint(hint)
+    };
+    if !missing.is_empty() && units_in_cells.is_none() {
+        diags.push(missing_error(&missing));
         usable = false;
     }
     if !usable {
         return None;
     }
-    // Extra columns are only worth a word when the header itself is right.
-    diags.extend(extra);
+    // Problems of the rows, kept apart until the file is known to be usable.
+    let mut row_diags: Vec<Diagnostic> = Vec::new();
     // The last field a row must reach: rows that end early, before no required column, are
     // read with the rest empty (exports leave off trailing empty values).
     let last_required = spec
@@ -799,8 +814,13 @@ fn read_records(
         .max()
         .copied();
     let (mut short_rows, mut trailing_empty) = (0usize, 0usize);
+    let headers = columns
+        .iter()
+        .map(|(c, &i)| (*c, written[i].clone()))
+        .collect();
     let mut table = Table {
         columns,
+        headers,
         rows: Vec::new(),
         text: String::with_capacity(text.len()),
         bounds: Vec::new(),
@@ -817,6 +837,8 @@ fn read_records(
             Ok(true) => {
                 records += 1;
                 if records > MAX_CSV_ROWS {
+                    diags.append(&mut extra);
+                    diags.append(&mut row_diags);
                     diags.push(
                         ctx.error(format!(
                             "the file has more than {MAX_CSV_ROWS} rows, the limit for one file; it was not read further and cannot be used"
@@ -835,7 +857,7 @@ fn read_records(
                 if let Some(l) = line {
                     d = d.at(l, None);
                 }
-                diags.push(d);
+                row_diags.push(d);
                 continue;
             }
         }
@@ -844,7 +866,7 @@ fn read_records(
             continue;
         }
         if let Some(i) = rec.iter().position(|f| f.len() > MAX_CSV_FIELD_BYTES) {
-            diags.push(
+            row_diags.push(
                 ctx.warning(format!(
                     "a field of {} bytes is longer than the limit of {MAX_CSV_FIELD_BYTES}; the row is dropped",
                     rec[i].len()
@@ -907,7 +929,7 @@ fn read_records(
             } else {
                 "every row needs one value per header column (leave a value empty, but keep its delimiter); quote text containing the delimiter".to_string()
             });
-            diags.push(d);
+            row_diags.push(d);
             continue;
         }
         let first = table.bounds.len();
@@ -922,6 +944,25 @@ fn read_records(
         }
         table.rows.push(Row { line, first });
     }
+    // Units in the cells were to stand for a missing unit column: without any, the column is
+    // missing after all.
+    if let Some(v) = units_in_cells
+        && !missing.is_empty()
+    {
+        let has_unit =
+            |s: &str| s.chars().any(|c| c.is_ascii_digit()) && s.chars().any(char::is_alphabetic);
+        if !table
+            .rows
+            .iter()
+            .any(|r| table.get(r, v).is_some_and(has_unit))
+        {
+            diags.push(missing_error(&missing));
+            return None;
+        }
+    }
+    // Extra columns are only worth a word when the header itself is right.
+    diags.extend(extra);
+    diags.extend(row_diags);
     let rows = |n: usize| {
         if n == 1 {
             "1 row".to_string()
@@ -1596,8 +1637,8 @@ mod tests {
         )
         .unwrap();
         assert_eq!(t.header_unit("weight"), Some("kg"));
-        assert!(read_table("date,Weight (st)\n", &spec, &opts, &ctx, &mut d).is_none());
-        assert!(d[0].message.contains("unit `st`"), "{}", d[0]);
+        assert!(read_table("date,Weight (oz)\n", &spec, &opts, &ctx, &mut d).is_none());
+        assert!(d[0].message.contains("unit `oz`"), "{}", d[0]);
         assert_eq!(
             header_key(" Body-Weight [KG] "),
             ("body_weight".into(), Some("kg".into()))

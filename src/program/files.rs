@@ -87,6 +87,9 @@ const MASS_UNITS: &[&str] = &[
     "lbs",
     "pound",
     "pounds",
+    "st",
+    "stone",
+    "stones",
 ];
 
 /// `weights.csv`.

@@ -303,6 +303,124 @@ fn stones_are_read_as_fourteen_pounds() {
     assert!((w[1].weight.kg() - 14.4 * 14.0 * 0.453_592_37).abs() < 1e-9);
 }
 
+fn weights_or_error(text: &str) -> (Option<Vec<WeighIn>>, Vec<Diagnostic>) {
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    (w, diags)
+}
+
+/// Scales and apps write the unit in the weight cell, with no unit column; every such file
+/// was refused for a missing `unit` column.
+#[test]
+fn units_written_in_the_weight_cells_are_read() {
+    let (w, diags) = weights(
+        "Date,Weight\n2026-04-01,72.5 kg\n2026-04-02,160.4 lb\n2026-04-03,160 lbs\n2026-04-04,11.5 st\n2026-04-05,72.4kg\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kg: Vec<f64> = w.iter().map(|x| x.weight.kg()).collect();
+    // 1 lb = 0.45359237 kg exactly (international yard and pound agreement, 1959);
+    // 1 st = 14 lb.
+    let want = [
+        72.5,
+        160.4 * 0.453_592_37,
+        160.0 * 0.453_592_37,
+        11.5 * 14.0 * 0.453_592_37,
+        72.4,
+    ];
+    assert_eq!(kg.len(), want.len());
+    for (a, b) in kg.iter().zip(want) {
+        assert!((a - b).abs() < 1e-9, "{kg:?}");
+    }
+    // A unit in the cell that agrees with the unit column or the header is fine.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,72.5 kg,kg\n");
+    assert!(diags.is_empty() && w.len() == 1, "{diags:#?}");
+    let (w, diags) = weights("Date,Weight (lb)\n2026-04-01,160 lbs\n");
+    assert!(diags.is_empty() && w.len() == 1, "{diags:#?}");
+    // A bare number among them has no unit: that row alone is dropped, named.
+    let (w, diags) = weights("Date,Weight\n2026-04-01,72.5 kg\n2026-04-02,72.3\n");
+    assert_eq!(w.len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(2)));
+    assert!(diags[0].message.contains("no unit"), "{}", diags[0]);
+    // Without a unit anywhere the file misses its unit column, as before.
+    let (w, diags) = weights_or_error("Date,Weight\n2026-04-01,72.5\n");
+    assert!(w.is_none());
+    assert!(
+        diags[0].message.contains("missing required column `unit`"),
+        "{}",
+        diags[0]
+    );
+}
+
+/// A unit in the cell that the unit column or header contradicts: which one is right cannot be
+/// known, so the file is refused, at the first such cell.
+#[test]
+fn a_unit_in_the_cell_that_disagrees_with_the_file_refuses_it() {
+    let (w, diags) = weights_or_error(
+        "date,weight,unit\n2026-04-01,72.5,kg\n2026-04-02,160.4 lb,kg\n2026-04-03,72.3,kg\n",
+    );
+    assert!(w.is_none());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let e = &diags[0];
+    assert_eq!(e.severity, Severity::Error);
+    assert_eq!(e.file, "participants/P1/weights.csv");
+    assert_eq!((e.line, e.column), (Some(3), Some(2)));
+    assert!(
+        e.message
+            .contains("`160.4 lb` is written in lb but the `unit` column says `kg`"),
+        "{e}"
+    );
+    assert_eq!(e.found.as_deref(), Some("`160.4 lb`"));
+    let (w, diags) = weights_or_error("Date,Weight (kg)\n2026-04-01,14 st 2 lb\n");
+    assert!(w.is_none());
+    assert!(
+        diags[0]
+            .message
+            .contains("written in st but the header `Weight (kg)` says kg"),
+        "{}",
+        diags[0]
+    );
+}
+
+/// Stones and pounds as British scales and people write them: 14 st 2 lb is 198 lb exactly.
+#[test]
+fn stones_and_pounds_are_read_exactly() {
+    let (w, diags) = weights(
+        "Date,Weight\n2026-04-01,14 st 2 lb\n2026-04-02,14st 2lb\n2026-04-03,14 st 2\n2026-04-04,14 st 0.5 lb\n2026-04-05,14 st 14 lb\n",
+    );
+    assert_eq!(w.len(), 4, "{diags:#?}");
+    // 198 lb × 0.45359237 kg/lb (exact, 1959 agreement) = 89.81128926 kg.
+    for x in &w[..3] {
+        assert!(
+            (x.weight.kg() - 89.811_289_26).abs() < 1e-9,
+            "{}",
+            x.weight.kg()
+        );
+    }
+    assert!((w[3].weight.kg() - 196.5 * 0.453_592_37).abs() < 1e-9);
+    // 14 pounds is a stone: not a way of writing a weight.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(6), Some(2)));
+    assert!(
+        diags[0].message.contains("stones and pounds"),
+        "{}",
+        diags[0]
+    );
+    // Under a stones unit column they agree.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,14 st 2 lb,st\n");
+    assert!(diags.is_empty() && w.len() == 1, "{diags:#?}");
+    // `Weight (st)` was refused as an unknown header unit.
+    let (w, diags) = weights("Date,Weight (st)\n2026-04-01,14.5\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert!((w[0].weight.kg() - 203.0 * 0.453_592_37).abs() < 1e-9);
+}
+
 #[test]
 fn bom_and_crlf_are_accepted_silently() {
     let (w, diags) =
