@@ -13,7 +13,7 @@ use super::quantity::{NumberError, parse_decimal, parse_grouped};
 use crate::diag::Diagnostic;
 use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_ROWS};
 pub use crate::program::files::{FileSpec, LocalZone};
-use chrono::{DateTime, FixedOffset, NaiveDate, NaiveDateTime, NaiveTime, Offset};
+use chrono::{DateTime, Datelike, FixedOffset, NaiveDate, NaiveDateTime, NaiveTime, Offset};
 use std::cell::{Cell, RefCell};
 use std::collections::{BTreeMap, HashMap};
 use std::sync::Arc;
@@ -93,6 +93,9 @@ pub struct CsvOptions {
     pub columns: Arc<BTreeMap<String, ColumnMap>>,
     /// The program's own activity labels.
     pub activities: Arc<crate::activities::LocalTable>,
+    /// The program's first and last day, to tell which date system spreadsheet serial dates
+    /// were written in (see [`SerialDates`]).
+    pub program_span: Option<(NaiveDate, NaiveDate)>,
 }
 
 impl Default for CsvOptions {
@@ -103,6 +106,7 @@ impl Default for CsvOptions {
             time_zone: None,
             columns: Arc::default(),
             activities: Arc::default(),
+            program_span: None,
         }
     }
 }
@@ -152,6 +156,9 @@ pub struct Table {
     utc_converted: Cell<bool>,
     /// Set when the date column's header says its times are UTC (`Date (UTC)`).
     dates_in_utc: bool,
+    /// The date system of the file's spreadsheet serial dates, with the first one read (as
+    /// written, and its date), when it has any.
+    serial_dates: Option<(SerialDates, String, NaiveDate)>,
 }
 
 impl Table {
@@ -228,6 +235,7 @@ impl Table {
             timestamps: Cell::new(false),
             utc_converted: Cell::new(false),
             dates_in_utc: false,
+            serial_dates: None,
         }
     }
 
@@ -270,6 +278,12 @@ impl Table {
             }
             s.push(')');
             parts.push(s);
+        }
+        if let Some((system, example, date)) = &self.serial_dates {
+            parts.push(format!(
+                "dates written as spreadsheet serial numbers read in the {} date system, the only one that puts them within the program (`{example}` = {date})",
+                system.name()
+            ));
         }
         for (written, col) in &self.renamed {
             parts.push(format!("column `{written}` read as `{col}`"));
@@ -430,13 +444,151 @@ pub fn read_table(
         };
         read_records(reader, &file, diags)
     })
-    .and_then(|table| match day_month_swapped(&table, opts, ctx) {
-        Some(d) => {
+    .and_then(|mut table| {
+        if let Some(d) = day_month_swapped(&table, opts, ctx) {
             diags.push(d);
-            None
+            return None;
         }
-        None => Some(table),
+        match serial_dates(&table, opts, ctx) {
+            Ok(found) => {
+                table.serial_dates = found;
+                Some(table)
+            }
+            Err(d) => {
+                diags.push(*d);
+                None
+            }
+        }
     })
+}
+
+/// The two date systems of spreadsheet serial dates (ECMA-376 Part 1, §18.17.4, "Dates and
+/// times": a workbook counts days either from 1900 or from 1904; its CSV export writes the
+/// count alone when a date cell is not formatted as a date, and does not say which system).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SerialDates {
+    /// Serial 1 is 1 January 1900, and 1900 is treated as a leap year, so from serial 61
+    /// (1 March 1900) on, serial n is n days after 30 December 1899 (the default system).
+    From1900,
+    /// Serial 0 is 1 January 1904 (older Mac workbooks): 1,462 days after the 1900 system.
+    From1904,
+}
+
+impl SerialDates {
+    fn name(self) -> &'static str {
+        match self {
+            SerialDates::From1900 => "1900",
+            SerialDates::From1904 => "1904",
+        }
+    }
+
+    /// The date and time of `serial` (a whole number of days and a fraction of a day), when it
+    /// is a date after February 1900 in this system (and not beyond the systems' last day,
+    /// 31 December 9999).
+    pub fn date_time(self, serial: f64) -> Option<NaiveDateTime> {
+        let (base, first) = match self {
+            SerialDates::From1900 => (NaiveDate::from_ymd_opt(1899, 12, 30)?, 61.0),
+            SerialDates::From1904 => (NaiveDate::from_ymd_opt(1904, 1, 1)?, 0.0),
+        };
+        if !(first..3_000_000.0).contains(&serial) {
+            return None;
+        }
+        let days = serial.floor();
+        // To the second: a time of day is stored as a fraction of 86,400 seconds.
+        let seconds = ((serial - days) * 86_400.0).round() as i64;
+        let dt = base.and_hms_opt(0, 0, 0)?
+            + chrono::Duration::days(days as i64)
+            + chrono::Duration::seconds(seconds);
+        (dt.year() <= 9999).then_some(dt)
+    }
+}
+
+/// Days either side of the program within which serial dates must fall for their date system
+/// to be taken: data from screening before the start or follow-up after the end still fit,
+/// and the two systems' readings (1,462 days apart) cannot both fit a program of up to two
+/// years (common practice).
+pub const SERIAL_DATE_MARGIN_DAYS: i64 = 365;
+
+/// Whether `s` is written as a spreadsheet serial date: digits, and a fraction of a day.
+fn is_serial(s: &str) -> bool {
+    let (int, frac) = s.split_once('.').unwrap_or((s, "0"));
+    (1..=7).contains(&int.len())
+        && !frac.is_empty()
+        && int.bytes().all(|b| b.is_ascii_digit())
+        && frac.bytes().all(|b| b.is_ascii_digit())
+}
+
+/// The date system of a file's spreadsheet serial dates (`46143` for 1 May 2026): the one
+/// system that puts every one of them within the program (give or take
+/// [`SERIAL_DATE_MARGIN_DAYS`]). When both or neither do, the file is refused at the first
+/// serial date: read in the wrong system every date would be four years off.
+fn serial_dates(
+    table: &Table,
+    opts: &CsvOptions,
+    ctx: &FileCtx,
+) -> Result<Option<(SerialDates, String, NaiveDate)>, Box<Diagnostic>> {
+    let serials: Vec<(&Row, &str)> = table
+        .rows
+        .iter()
+        .filter_map(|r| table.get(r, "date").map(|s| (r, s)))
+        .filter(|(_, s)| is_serial(s) && parse_when(s, opts).is_none())
+        .collect();
+    let Some(&(first_row, first)) = serials.first() else {
+        return Ok(None);
+    };
+    let margin = chrono::Duration::days(SERIAL_DATE_MARGIN_DAYS);
+    let fits = |system: SerialDates| {
+        opts.program_span.is_some_and(|(start, end)| {
+            serials.iter().all(|(_, s)| {
+                s.parse::<f64>()
+                    .ok()
+                    .and_then(|v| system.date_time(v))
+                    .is_some_and(|dt| dt.date() >= start - margin && dt.date() <= end + margin)
+            })
+        })
+    };
+    let fitting: Vec<SerialDates> = [SerialDates::From1900, SerialDates::From1904]
+        .into_iter()
+        .filter(|&s| fits(s))
+        .collect();
+    let reading = |system: SerialDates| {
+        first
+            .parse::<f64>()
+            .ok()
+            .and_then(|v| system.date_time(v))
+            .map_or("no date".to_string(), |dt| dt.date().to_string())
+    };
+    if let [system] = fitting.as_slice() {
+        let date = first
+            .parse::<f64>()
+            .ok()
+            .and_then(|v| system.date_time(v))
+            .expect("it fits")
+            .date();
+        return Ok(Some((*system, first.to_string(), date)));
+    }
+    let span = match opts.program_span {
+        Some((a, b)) => {
+            format!("the program ({a} to {b}, give or take {SERIAL_DATE_MARGIN_DAYS} days)")
+        }
+        None => "the program".to_string(),
+    };
+    let why = if fitting.is_empty() {
+        format!("neither system puts every serial date of the file within {span}")
+    } else {
+        format!("both systems put every serial date of the file within {span}")
+    };
+    Err(Box::new(ctx
+        .error(format!(
+            "the dates are spreadsheet serial numbers (`{first}` is {} in the 1900 date system, {} in the 1904 one) and {why}, so which date each stands for cannot be told; the file is not used",
+            reading(SerialDates::From1900),
+            reading(SerialDates::From1904)
+        ))
+        .at(first_row.line, table.column("date"))
+        .field("date")
+        .expected("dates such as `2026-05-01`, or serial numbers that fall within the program in one date system only")
+        .found(format!("`{first}`"))
+        .hint("in the spreadsheet, format the date column as dates (e.g. yyyy-mm-dd) and save the CSV again")))
 }
 
 /// A file whose dates are written with day and month the other way round from
@@ -1190,7 +1342,8 @@ impl Cells<'_> {
             // Pushes the "is empty" warning.
             return self.required_text(col, diags).and(None);
         };
-        match parse_when(s, self.opts).map(|w| self.utc_by_header(s, w)) {
+        let when = parse_when(s, self.opts).or_else(|| self.serial_date(s));
+        match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
                     self.table.timestamps.set(true);
@@ -1234,6 +1387,21 @@ impl Cells<'_> {
                 None
             }
         }
+    }
+
+    /// A spreadsheet serial date, in the date system found for the file (see [`SerialDates`]).
+    fn serial_date(&self, s: &str) -> Option<When> {
+        let (system, _, _) = self.table.serial_dates.as_ref()?;
+        if !is_serial(s) {
+            return None;
+        }
+        let dt = system.date_time(s.parse().ok()?)?;
+        let midnight = NaiveTime::MIN;
+        Some(When {
+            date: dt.date(),
+            time: (dt.time() != midnight).then_some(dt.time()),
+            from_utc: false,
+        })
     }
 
     /// A time written without an offset under a header that says UTC (`Date (UTC)`), taken as
@@ -1397,6 +1565,107 @@ mod tests {
         let (t, d) = read(same, &dmy);
         assert_eq!(t.unwrap().rows.len(), 2);
         assert!(d.is_empty(), "{d:?}");
+    }
+
+    #[test]
+    fn serial_dates_in_both_date_systems() {
+        // ECMA-376 Part 1, "Date Representation": DATEVALUE("01-Feb-2006") is 38749 in the
+        // 1900 date base system and 37287 in the 1904 one; "03-Feb-1910" 3687 and 2225;
+        // "01-Jan-1904" is 0 in the 1904 system; 31 December 9999 is 2958465 and 2957003;
+        // serial 61 is 1 March 1900 (60 stands for the 29 February 1900 that never was).
+        let day = |s: SerialDates, v: f64| s.date_time(v).map(|dt| dt.date().to_string());
+        use SerialDates::*;
+        assert_eq!(day(From1900, 38749.0).as_deref(), Some("2006-02-01"));
+        assert_eq!(day(From1904, 37287.0).as_deref(), Some("2006-02-01"));
+        assert_eq!(day(From1900, 3687.0).as_deref(), Some("1910-02-03"));
+        assert_eq!(day(From1904, 2225.0).as_deref(), Some("1910-02-03"));
+        assert_eq!(day(From1904, 0.0).as_deref(), Some("1904-01-01"));
+        assert_eq!(day(From1900, 61.0).as_deref(), Some("1900-03-01"));
+        assert_eq!(day(From1900, 2_958_465.0).as_deref(), Some("9999-12-31"));
+        assert_eq!(day(From1904, 2_957_003.0).as_deref(), Some("9999-12-31"));
+        assert_eq!(day(From1900, 2_958_466.0), None);
+        assert_eq!(day(From1900, 60.0), None);
+        // A fraction of a day is the time: 0.3 × 24 h = 07:12.
+        assert_eq!(
+            From1900.date_time(46145.3).unwrap().to_string(),
+            "2026-05-03 07:12:00"
+        );
+    }
+
+    #[test]
+    fn serial_dates_are_read_in_the_one_system_that_fits_the_program() {
+        let opts = CsvOptions {
+            program_span: NaiveDate::from_ymd_opt(2026, 4, 1)
+                .zip(NaiveDate::from_ymd_opt(2026, 9, 30)),
+            ..CsvOptions::default()
+        };
+        let dates = |text: &str, opts: &CsvOptions| {
+            let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+            let mut d = Vec::new();
+            let t = read_table(text, &SPEC, opts, &ctx, &mut d);
+            let got = t.map(|t| {
+                let mut d2 = Vec::new();
+                let w: Vec<String> = t
+                    .rows
+                    .iter()
+                    .map(|row| {
+                        let c = Cells {
+                            table: &t,
+                            row,
+                            ctx: &ctx,
+                            opts,
+                        };
+                        let w = c.when("date", &mut d2).unwrap();
+                        format!("{} {:?}", w.date, w.time.map(|t| t.to_string()))
+                    })
+                    .collect();
+                t.describe(opts, &ctx);
+                w
+            });
+            (got, d, ctx.take_notes())
+        };
+        // 46143 is 1 May 2026 in the 1900 system (2 May 2030 in the 1904 one).
+        let (got, d, notes) = dates(
+            "date,weight,unit\n46143,72.5,kg\n46145.3,72.1,kg\n2026-05-04,72,kg\n",
+            &opts,
+        );
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(
+            got.unwrap(),
+            [
+                "2026-05-01 None",
+                "2026-05-03 Some(\"07:12:00\")",
+                "2026-05-04 None"
+            ]
+        );
+        assert!(notes[0].message.contains("1900 date system"), "{notes:?}");
+        // 44681 is 1 May 2026 in the 1904 system (30 April 2022 in the 1900 one).
+        let (got, d, _) = dates("date,weight,unit\n44681,72.5,kg\n44682,72.3,kg\n", &opts);
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01 None", "2026-05-02 None"]);
+        // Neither system places 40000 (2009 or 2013) near the program: refused at that cell.
+        let (got, d, _) = dates("date,weight,unit\n2026-05-01,72,kg\n40000,72.5,kg\n", &opts);
+        assert!(got.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)));
+        assert!(
+            d[0].message.contains(
+                "`40000` is 2009-07-06 in the 1900 date system, 2013-07-07 in the 1904 one"
+            ),
+            "{}",
+            d[0]
+        );
+        assert!(d[0].message.contains("neither system"), "{}", d[0]);
+        // A program of six years holds both readings of 46143: refused.
+        let long = CsvOptions {
+            program_span: NaiveDate::from_ymd_opt(2025, 1, 1)
+                .zip(NaiveDate::from_ymd_opt(2030, 12, 31)),
+            ..CsvOptions::default()
+        };
+        let (got, d, _) = dates("date,weight,unit\n46143,72.5,kg\n", &long);
+        assert!(got.is_none());
+        assert!(d[0].message.contains("both systems"), "{}", d[0]);
     }
 
     #[test]
