@@ -327,6 +327,86 @@ pub fn split_mass(s: &str) -> Option<WrittenMass<'_>> {
     })
 }
 
+/// A duration as written in one cell, in minutes.
+#[derive(Debug, Clone, PartialEq)]
+pub enum WrittenDuration<'a> {
+    /// A plain number: in the column's unit (minutes unless the header says hours).
+    Plain(&'a str),
+    /// A clock duration `h:mm:ss` (`00:45:00`, `1:10:00`), self-describing.
+    Clock(f64),
+    /// Numbers with units (`45 min`, `1 h 15 min`, `1h`, `90 s`): the minutes, and the unit
+    /// when only one was written (`min`, `h` or `s`).
+    Units(f64, Option<&'static str>),
+    /// Two parts with a colon (`45:00`, `1:30`): minutes and seconds, or hours and minutes.
+    Ambiguous,
+    /// Not a duration form (the cell is then read as a plain number, which names the problem).
+    Other,
+}
+
+/// Reads a duration cell (see [`WrittenDuration`]). Numbers inside are plain decimals (a
+/// decimal comma is left to the plain-number reader, which knows the file's delimiter).
+pub fn split_duration(s: &str) -> WrittenDuration<'_> {
+    let s = s.trim();
+    if s.contains(':') {
+        let parts: Vec<&str> = s.split(':').collect();
+        let digits = |p: &str| !p.is_empty() && p.bytes().all(|b| b.is_ascii_digit());
+        return match parts.as_slice() {
+            [h, m, sec]
+                if digits(h)
+                    && h.len() <= 3
+                    && m.len() == 2
+                    && digits(m)
+                    && digits(sec.split('.').next().unwrap_or(""))
+                    && sec.split('.').next().is_some_and(|x| x.len() == 2) =>
+            {
+                let (Ok(h), Ok(m), Ok(sec)) =
+                    (h.parse::<f64>(), m.parse::<f64>(), sec.parse::<f64>())
+                else {
+                    return WrittenDuration::Other;
+                };
+                if m >= 60.0 || sec >= 60.0 {
+                    return WrittenDuration::Other;
+                }
+                WrittenDuration::Clock(h * 60.0 + m + sec / 60.0)
+            }
+            [a, b] if digits(a) && digits(b) && b.len() == 2 => WrittenDuration::Ambiguous,
+            _ => WrittenDuration::Other,
+        };
+    }
+    if parse_decimal(s).is_ok() || !s.chars().any(char::is_alphabetic) {
+        return WrittenDuration::Plain(s);
+    }
+    // Numbers with units, largest first, each unit once: `1 h 15 min`, `1h15m`, `45 mins`.
+    let mut rest = s;
+    let mut minutes = 0.0;
+    let mut units: Vec<&'static str> = Vec::new();
+    while !rest.is_empty() {
+        let n = number_prefix_len(rest);
+        let Ok(v) = parse_decimal(&rest[..n]) else {
+            return WrittenDuration::Other;
+        };
+        let after = rest[n..].trim_start();
+        let u = after
+            .char_indices()
+            .find(|(_, c)| !c.is_alphabetic())
+            .map_or(after.len(), |(i, _)| i);
+        let (unit, per_minute) = match after[..u].to_lowercase().as_str() {
+            "h" | "hr" | "hrs" | "hour" | "hours" => ("h", 60.0),
+            "m" | "min" | "mins" | "minute" | "minutes" => ("min", 1.0),
+            "s" | "sec" | "secs" | "second" | "seconds" => ("s", 1.0 / 60.0),
+            _ => return WrittenDuration::Other,
+        };
+        let rank = |u: &str| ["h", "min", "s"].iter().position(|x| *x == u);
+        if units.last().is_some_and(|&last| rank(last) >= rank(unit)) {
+            return WrittenDuration::Other;
+        }
+        units.push(unit);
+        minutes += v * per_minute;
+        rest = after[u..].trim_start();
+    }
+    WrittenDuration::Units(minutes, (units.len() == 1).then(|| units[0]))
+}
+
 /// Why a length could not be read.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct QuantityError {
@@ -536,6 +616,33 @@ mod tests {
         // Not numbers with units: left to the number reader, which names what it found.
         for s in ["kg", "72 kg 3 lb", "14 lb 2 st", "n/a", "72 kg!", ""] {
             assert_eq!(split_mass(s), None, "{s}");
+        }
+    }
+
+    #[test]
+    fn durations_as_activity_apps_write_them() {
+        use WrittenDuration::*;
+        assert_eq!(split_duration("00:45:00"), Clock(45.0));
+        assert_eq!(split_duration("1:10:00"), Clock(70.0));
+        assert_eq!(split_duration("0:30:30"), Clock(30.5));
+        assert_eq!(split_duration("45 min"), Units(45.0, Some("min")));
+        assert_eq!(split_duration("30 mins"), Units(30.0, Some("min")));
+        assert_eq!(split_duration("1 h 15 min"), Units(75.0, None));
+        assert_eq!(split_duration("1h15m"), Units(75.0, None));
+        assert_eq!(split_duration("1.5 hours"), Units(90.0, Some("h")));
+        assert_eq!(split_duration("1h"), Units(60.0, Some("h")));
+        assert_eq!(split_duration("45"), Plain("45"));
+        assert_eq!(split_duration("45:00"), Ambiguous);
+        assert_eq!(split_duration("1:30"), Ambiguous);
+        for s in [
+            "00:75:00",
+            "15 min 1 h",
+            "45 furlongs",
+            "1 h 1 h",
+            "abc",
+            "1::2",
+        ] {
+            assert_eq!(split_duration(s), Other, "{s}");
         }
     }
 

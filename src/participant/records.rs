@@ -6,7 +6,9 @@
 //! file whose shape cannot be trusted (missing column) is an error. Every list comes out sorted
 //! by date.
 
-use super::quantity::{MassUnit, WrittenMass, number_prefix_len, split_mass};
+use super::quantity::{
+    MassUnit, WrittenDuration, WrittenMass, number_prefix_len, split_duration, split_mass,
+};
 use super::table::{Cells, CsvOptions, Dropped, FileCtx, Table, header_key, read_table};
 use crate::activities;
 use crate::diag::Diagnostic;
@@ -849,12 +851,50 @@ pub fn parse_activity(
     let has_met_column = table.column("met").is_some();
     // Unknown labels: (rows, first line), reported once per label.
     let mut unknown: BTreeMap<String, (usize, u64)> = BTreeMap::new();
+    // The first duration whose unit in the cell disagrees with the header's.
+    let mut conflict: Option<Diagnostic> = None;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let activity = c.required_text("activity", d)?;
-        let mut minutes = c.number("minutes", d)?;
-        if matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours")) {
-            minutes *= 60.0;
-        }
+        let header_hours = matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours"));
+        let raw = c.required_text("minutes", d)?;
+        let minutes = match split_duration(&raw) {
+            WrittenDuration::Plain(_) | WrittenDuration::Other => {
+                let v = c.number("minutes", d)?;
+                if header_hours { v * 60.0 } else { v }
+            }
+            WrittenDuration::Clock(m) => m,
+            WrittenDuration::Units(m, unit) => {
+                // One unit in the cell that the header contradicts (`45 min` under
+                // `Duration (h)`): which is right cannot be known.
+                if let (Some(u), Some(h)) = (unit, c.table.header_unit("minutes"))
+                    && u != if header_hours { "h" } else { "min" }
+                {
+                    conflict.get_or_insert_with(|| {
+                        c.ctx
+                            .error(format!(
+                                "the duration `{raw}` is written in {u} but the header `{}` says {h}; the file is not used, as it cannot say which unit its durations are in",
+                                c.table.written_header("minutes").unwrap_or("minutes")
+                            ))
+                            .at(c.row.line, c.table.column("minutes"))
+                            .field("minutes")
+                            .expected(format!("durations in {h}, as the header says, or with the unit in every cell and none in the header"))
+                            .found(format!("`{raw}`"))
+                            .hint("correct the cell or the header")
+                    });
+                    return None;
+                }
+                m
+            }
+            WrittenDuration::Ambiguous => {
+                d.push(
+                    c.warn("minutes", "a duration with one colon could be minutes:seconds or hours:minutes; the row is dropped")
+                        .expected("minutes (`45`), a clock duration h:mm:ss (`0:45:00`) or a duration with units (`45 min`, `1 h 15 min`)")
+                        .found(format!("`{raw}`"))
+                        .hint("export durations as h:mm:ss or in minutes"),
+                );
+                return None;
+            }
+        };
         if !(0.0..=MAX_ACTIVITY_MINUTES).contains(&minutes) {
             d.push(
                 c.warn("minutes", "implausible minutes; the row is dropped")
@@ -907,6 +947,10 @@ pub fn parse_activity(
         };
         Some((activity, minutes, met, met_source, steps))
     });
+    if let Some(e) = conflict {
+        diags.push(e);
+        return None;
+    }
     let acol = table.column("activity");
     for (label, (n, first)) in &unknown {
         let near = activities::suggestions(label, &opts.activities, 3)

@@ -462,9 +462,10 @@ pub fn read_table(
     })
 }
 
-/// The two date systems of spreadsheet serial dates (ECMA-376 Part 1, §18.17.4, "Dates and
-/// times": a workbook counts days either from 1900 or from 1904; its CSV export writes the
-/// count alone when a date cell is not formatted as a date, and does not say which system).
+/// The two date systems of spreadsheet serial dates (ECMA-376, "Date Representation": the
+/// 1900 and the 1904 date base systems; Part 1 §18.17.4, the section number from memory). A
+/// workbook counts days from one or the other; its CSV export writes the count alone when a
+/// date cell is not formatted as a date, and does not say which system.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum SerialDates {
     /// Serial 1 is 1 January 1900, and 1900 is treated as a leap year, so from serial 61

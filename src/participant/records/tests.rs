@@ -782,3 +782,59 @@ fn an_empty_weights_file_is_an_error_naming_the_file() {
         diags[0]
     );
 }
+
+fn activity_or_error(text: &str) -> (Option<Vec<ActivityEntry>>, Vec<Diagnostic>) {
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    );
+    (a, diags)
+}
+
+/// Fitness apps write durations as clock times (`00:45:00`) or with units (`45 min`): every
+/// such row was dropped as "not a number".
+#[test]
+fn durations_written_as_clock_times_or_with_units_are_read() {
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration\n2026-04-01,brisk walk,00:45:00\n2026-04-02,\"Cycling, moderate\",1:10:00\n2026-04-03,brisk walk,45 min\n2026-04-04,jog,1 h 15 min\n2026-04-05,Yoga,1h\n2026-04-06,Yoga,30\n2026-04-07,Yoga,45:00\n",
+    );
+    let a = a.unwrap();
+    let minutes: Vec<f64> = a.iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [45.0, 70.0, 45.0, 75.0, 60.0, 30.0]);
+    // `45:00` is 45 minutes or 45 hours: dropped, named.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(8), Some(3)));
+    assert!(
+        diags[0]
+            .message
+            .contains("minutes:seconds or hours:minutes"),
+        "{}",
+        diags[0]
+    );
+    // A clock duration under `Duration (h)` is still its own; a plain number is hours.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h)\n2026-04-01,Yoga,0:30:00\n2026-04-02,Yoga,1.5\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [30.0, 90.0]);
+    // A unit in the cell that the header contradicts refuses the file at that cell.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h)\n2026-04-01,Yoga,1\n2026-04-02,Yoga,45 min\n",
+    );
+    assert!(a.is_none());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].severity, Severity::Error);
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(3)));
+    assert!(
+        diags[0]
+            .message
+            .contains("`45 min` is written in min but the header `Duration (h)` says h"),
+        "{}",
+        diags[0]
+    );
+}
