@@ -445,7 +445,9 @@ pub fn read_table(
         read_records(reader, &file, diags)
     })
     .and_then(|mut table| {
-        if let Some(d) = day_month_swapped(&table, opts, ctx) {
+        if let Some(d) =
+            day_month_swapped(&table, opts, ctx).or_else(|| dotted_month_first(&table, opts, ctx))
+        {
             diags.push(d);
             return None;
         }
@@ -1173,9 +1175,11 @@ const ISO_NAIVE: [&str; 4] = [
     "%Y-%m-%d %H:%M",
 ];
 /// ISO-8601 date-times with an offset (`+01:00`, `+0100`); `Z` is read as `+00:00`.
-const ISO_OFFSET: [&str; 4] = [
+const ISO_OFFSET: [&str; 5] = [
     "%Y-%m-%dT%H:%M:%S%.f%#z",
     "%Y-%m-%d %H:%M:%S%.f%#z",
+    // With a space before the offset, as phone health apps write it.
+    "%Y-%m-%d %H:%M:%S %#z",
     "%Y-%m-%dT%H:%M%#z",
     "%Y-%m-%d %H:%M%#z",
 ];
@@ -1258,7 +1262,83 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
             }
         }
     }
+    written_out(s, format == "%Y-%m-%d").map(|(date, time)| When {
+        date,
+        time,
+        from_utc: false,
+    })
+}
+
+/// Dates as apps and spreadsheets write them out, whatever the program's format, each with one
+/// reading only: the month by name (`May 1, 2026`, `1 May 2026`, `1-May-2026`), year first with
+/// slashes (`2026/05/01`) and, when the program has not set a day-and-month format of its own
+/// (`day_first_dots`), day first with dots (`01.05.2026`, the dotted form of the countries that
+/// write it, always day first: common practice; a file whose dotted dates turn out month first
+/// is refused, see [`dotted_month_first`]). A time may follow (`07:12`, `07:12:30`, `7:12 AM`).
+fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<NaiveTime>)> {
+    const NAMED: [&str; 7] = [
+        "%B %d, %Y",
+        "%b %d, %Y",
+        "%B %d %Y",
+        "%b %d %Y",
+        "%d %B %Y",
+        "%d %b %Y",
+        "%d-%b-%Y",
+    ];
+    const TIMES: [&str; 4] = ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"];
+    let b = s.as_bytes();
+    let dates: &[&str] = if s.bytes().any(|c| c.is_ascii_alphabetic()) {
+        &NAMED
+    } else if b.len() >= 10 && b[4] == b'/' {
+        &["%Y/%m/%d"]
+    } else if day_first_dots && b.len() >= 10 && b[2] == b'.' && b[5] == b'.' {
+        &["%d.%m.%Y"]
+    } else {
+        return None;
+    };
+    for f in dates {
+        if let Ok(d) = NaiveDate::parse_from_str(s, f) {
+            return Some((d, None));
+        }
+        for sep in [" ", ", "] {
+            for t in TIMES {
+                if let Ok(dt) = NaiveDateTime::parse_from_str(s, &format!("{f}{sep}{t}")) {
+                    return Some((dt.date(), Some(dt.time())));
+                }
+            }
+        }
+    }
     None
+}
+
+/// A file whose dotted dates are month first (`05.13.2026`): read day first (see
+/// [`written_out`]) its dates up to the 12th would be on the wrong day, so it is refused at the
+/// first date that shows it.
+fn dotted_month_first(table: &Table, opts: &CsvOptions, ctx: &FileCtx) -> Option<Diagnostic> {
+    if opts.date_format != "%Y-%m-%d" {
+        return None;
+    }
+    let row = table.rows.iter().find(|r| {
+        table.get(r, "date").is_some_and(|s| {
+            let day = s.split(' ').next().unwrap_or(s);
+            day.len() == 10
+                && day.as_bytes()[2] == b'.'
+                && NaiveDate::parse_from_str(day, "%d.%m.%Y").is_err()
+                && NaiveDate::parse_from_str(day, "%m.%d.%Y").is_ok()
+        })
+    })?;
+    let found = table.get(row, "date").unwrap_or("");
+    Some(
+        ctx.error(format!(
+            "the dotted dates are written month first (line {}'s `{found}` has no 13th month), so those up to the 12th cannot be read as day first; the file is not used",
+            row.line
+        ))
+        .at(row.line, table.column("date"))
+        .field("date")
+        .expected("dotted dates day first (`13.05.2026`), or ISO 8601 dates (`2026-05-13`)")
+        .found(format!("`{found}`"))
+        .hint("if every file of the program writes dates month first with dots, set `input.date_format: \"%m.%d.%Y\"` in program.yaml"),
+    )
 }
 
 /// `NaiveDate::parse_from_str(s, format)`, with the common ISO form `YYYY-MM-DD` read directly
@@ -1566,6 +1646,80 @@ mod tests {
         let (t, d) = read(same, &dmy);
         assert_eq!(t.unwrap().rows.len(), 2);
         assert!(d.is_empty(), "{d:?}");
+    }
+
+    #[test]
+    fn dates_written_out_by_apps_and_spreadsheets_are_read() {
+        let opts = CsvOptions::default();
+        let day = |s: &str, o: &CsvOptions| {
+            parse_when(s, o).map(|w| (w.date.to_string(), w.time.map(|t| t.to_string())))
+        };
+        let may1 = Some(("2026-05-01".to_string(), None));
+        for s in [
+            "May 1, 2026",
+            "1 May 2026",
+            "1-May-2026",
+            "May 01 2026",
+            "01 May 2026",
+            "2026/05/01",
+            "01.05.2026",
+        ] {
+            assert_eq!(day(s, &opts), may1, "{s}");
+        }
+        let at = |d: &str, t: &str| Some((d.to_string(), Some(t.to_string())));
+        assert_eq!(
+            day("September 3, 2026", &opts),
+            Some(("2026-09-03".into(), None))
+        );
+        assert_eq!(
+            day("Sep 3, 2026 7:12 PM", &opts),
+            at("2026-09-03", "19:12:00")
+        );
+        assert_eq!(
+            day("3 Sep 2026, 07:12", &opts),
+            at("2026-09-03", "07:12:00")
+        );
+        assert_eq!(
+            day("2026/05/01 07:12:30", &opts),
+            at("2026-05-01", "07:12:30")
+        );
+        assert_eq!(day("13.05.2026 07:12", &opts), at("2026-05-13", "07:12:00"));
+        // A space before the offset (phone health apps): the device's local day.
+        assert_eq!(
+            day("2026-05-02 07:05:00 +0200", &opts),
+            at("2026-05-02", "07:05:00")
+        );
+        // Not dates: a summary row, a month-first dotted date, a day that does not exist.
+        for s in ["Average", "05.13.2026", "Feb 30, 2026", "2026/13/01"] {
+            assert_eq!(day(s, &opts), None, "{s}");
+        }
+        // A program with its own day-and-month format reads dotted dates only by it.
+        let dmy = CsvOptions {
+            date_format: "%d/%m/%Y".into(),
+            ..CsvOptions::default()
+        };
+        assert_eq!(day("01.05.2026", &dmy), None);
+        assert_eq!(day("May 1, 2026", &dmy), may1);
+    }
+
+    #[test]
+    fn dotted_dates_written_month_first_refuse_the_file() {
+        let (t, d) = read(
+            "date,weight,unit\n05.01.2026,72,kg\n05.13.2026 07:10,71.8,kg\n",
+            &CsvOptions::default(),
+        );
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)));
+        assert!(d[0].message.contains("month first"), "{}", d[0]);
+        // Day first, they are read.
+        let (t, d) = read(
+            "date,weight,unit\n01.05.2026,72,kg\n13.05.2026,71.8,kg\n",
+            &CsvOptions::default(),
+        );
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.unwrap().rows.len(), 2);
     }
 
     #[test]
