@@ -751,7 +751,8 @@ pub fn parse_intake(
     // kilojoule countries). Daily totals whose median is above what anyone logs in kcal are
     // kJ; read as kcal they were taken as four times the intake, without a word.
     if let Some(written) = table.written_as("kcal")
-        && header_key(written).0 == "energy"
+        // `Dietary Energy`: phone health apps write kJ or kcal by the phone's region.
+        && matches!(header_key(written).0.as_str(), "energy" | "dietary_energy")
         && table.header_unit("kcal").is_none()
         && days.len() >= 3
     {

@@ -729,6 +729,8 @@ fn read_records(
     };
     // One record buffer for the whole file (csv's record iterator clones every record).
     let mut rec = csv::StringRecord::new();
+    // A title line above the header (`Foods`, `Body`: some trackers' exports start so).
+    let mut title = title_line(text, spec, opts, delimiter);
     let header = loop {
         match reader.read_record(&mut rec) {
             // Nothing but (blank) line ends: no header row at all. A file with only a header
@@ -763,6 +765,7 @@ fn read_records(
                 return None;
             }
             Ok(true) if rec.iter().all(|f| f.trim().is_empty()) => continue,
+            Ok(true) if title.take().is_some() => continue,
             Ok(true) => break rec.clone(),
         }
     };
@@ -794,6 +797,12 @@ fn read_records(
         })
     };
     let header_line = line_of(header.position());
+    if let Some(t) = title_line(text, spec, opts, delimiter) {
+        ctx.note(format!(
+            "the first line, `{}`, is a title above the header (line {header_line}) and is not read",
+            shorten(&t, 40)
+        ));
+    }
     // Budgets (crate::limits): checked before anything is built from the header or the rows.
     if header.len() > MAX_CSV_COLUMNS {
         diags.push(
@@ -1138,6 +1147,28 @@ fn read_records(
         ));
     }
     Some(table)
+}
+
+/// The first non-blank line of `text` when it is a title above the header: it holds no
+/// delimiter and no quote, and the next non-blank line is a header naming the date column
+/// among others.
+fn title_line(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> Option<String> {
+    let mut lines = text.split(['\n', '\r']).filter(|l| !l.trim().is_empty());
+    let (first, second) = (lines.next()?, lines.next()?);
+    let d = delimiter as char;
+    if first.contains(d) || first.contains('"') || !second.contains(d) {
+        return None;
+    }
+    let user_map = opts.columns.get(spec.kind());
+    let names_date = second.split(d).any(|h| {
+        let key = header_key(h.trim().trim_matches('"')).0;
+        key == "date"
+            || spec.aliases.iter().any(|(a, c)| *a == key && *c == "date")
+            || user_map
+                .and_then(|m| m.get(&key))
+                .is_some_and(|c| c == "date")
+    });
+    names_date.then(|| first.trim().trim_start_matches('\u{feff}').to_string())
 }
 
 /// The first `max` characters of `s`, with `…` when cut.
@@ -1720,6 +1751,32 @@ mod tests {
         );
         assert!(d.is_empty(), "{d:?}");
         assert_eq!(t.unwrap().rows.len(), 2);
+    }
+
+    #[test]
+    fn a_title_line_above_the_header_is_not_read_as_the_header() {
+        // Trackers start some exports with the section's name; the file was refused for
+        // missing columns.
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text = "Body\nDate,Weight,Unit\n\"2026-05-01\",\"72.5\",kg\n2026-05-02,72.3,kg\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.header_line, 2);
+        assert_eq!(t.rows.iter().map(|r| r.line).collect::<Vec<_>>(), [3, 4]);
+        assert_eq!(t.get(&t.rows[0], "weight"), Some("72.5"));
+        assert_eq!(
+            ctx.take_notes()[0].message,
+            "the first line, `Body`, is a title above the header (line 2) and is not read"
+        );
+        // A one-column first line above data is no title: the header is missing, as before.
+        let (t, d) = read("weight\n2026-05-01,72.5,kg\n", &CsvOptions::default());
+        assert!(t.is_none());
+        assert!(
+            d[0].message.contains("missing required columns"),
+            "{}",
+            d[0]
+        );
     }
 
     #[test]

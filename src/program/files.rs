@@ -110,6 +110,12 @@ pub const WEIGHTS: FileSpec = FileSpec {
         ("weight_unit", "unit"),
         ("units", "unit"),
         ("device", "source"),
+        // Phone health apps (`Weight & Body Mass (kg)`) and German-language scales
+        // (`Datum`, `Gewicht (kg)`, `Einheit`).
+        ("weight_body_mass", "weight"),
+        ("datum", "date"),
+        ("gewicht", "weight"),
+        ("einheit", "unit"),
     ],
     header_units: &[("weight", MASS_UNITS, Some("unit"))],
 };
@@ -123,6 +129,9 @@ pub const INTAKE: FileSpec = FileSpec {
         ("datetime", "date"),
         ("timestamp", "date"),
         ("calories", "kcal"),
+        ("calories_in", "kcal"),
+        ("dietary_energy", "kcal"),
+        ("datum", "date"),
         ("energy", "kcal"),
         ("energy_kcal", "kcal"),
         ("carbs", "carbs_g"),

@@ -527,6 +527,32 @@ fn an_energy_column_without_a_unit_holding_kilojoules_is_refused() {
     let (v, d) = parse("date,Energy\n2026-04-01,1800\n2026-04-02,2100\n2026-04-03,1900\n");
     assert!(d.is_empty(), "{d:#?}");
     assert_eq!(v.unwrap().len(), 3);
+    // A phone health app's `Dietary Energy` (read as kcal now) is checked the same way.
+    let (v, d) = parse(&kj.replace("Energy", "Dietary Energy"));
+    assert!(v.is_none());
+    assert!(
+        d[0].message.contains("`Dietary Energy` has no unit"),
+        "{}",
+        d[0]
+    );
+}
+
+/// Headers of phone health apps, trackers and German-language scales (each file was refused
+/// for a missing column).
+#[test]
+fn headers_of_health_apps_and_german_scales_are_read() {
+    let (w, diags) = weights("Date/Time,Weight & Body Mass (kg)\n2026-04-01 07:12:00 +0200,72.5\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(
+        (w[0].weight.kg(), w[0].time.as_deref()),
+        (72.5, Some("07:12"))
+    );
+    let (w, diags) = weights("Datum;Gewicht;Einheit\n01.04.2026;72,5;kg\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!((w[0].date, w[0].weight.kg()), (d(2026, 4, 1), 72.5));
+    let (v, diags) = intake("Date,Calories In\n2026-04-01,\"1,850\"\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].kcal, 1850.0);
 }
 
 #[test]
