@@ -658,11 +658,32 @@ pub fn parse_weights(
 struct RawIntake {
     kcal: f64,
     macros: [Option<f64>; 4],
+    /// Marked as the day's total (`Total` in a `Meal` column).
+    total: bool,
+}
+
+/// Labels of a food diary's row that totals the day's other rows (in a column of its own, such
+/// as `Meal`).
+const TOTAL_LABELS: [&str; 7] = [
+    "total",
+    "totals",
+    "daily total",
+    "day total",
+    "sum",
+    "summe",
+    "gesamt",
+];
+
+/// How far a day's `Total` row may be from the sum of its other rows and still be their total:
+/// diaries print each row rounded (common practice).
+fn total_matches(total: f64, sum: f64) -> bool {
+    (total - sum).abs() <= (0.005 * sum).max(2.0)
 }
 
 impl SameValue for RawIntake {
     fn same_value(&self, o: &Self) -> bool {
-        same_f64(self.kcal, o.kcal)
+        self.total == o.total
+            && same_f64(self.kcal, o.kcal)
             && self
                 .macros
                 .iter()
@@ -708,11 +729,17 @@ pub fn parse_intake(
                 Err(Dropped) => {}
             }
         }
-        Some(RawIntake { kcal, macros })
+        let total = c.table.row_labelled(c.row, &TOTAL_LABELS);
+        Some(RawIntake {
+            kcal,
+            macros,
+            total,
+        })
     });
     note_identical_same_day(&rows, "intake", ctx);
     let rows = in_window(rows, w, &table, ctx, diags);
     table.describe(opts, ctx);
+    let rows = drop_total_rows(rows, &table, ctx, diags);
 
     struct Day {
         kcal: f64,
@@ -809,6 +836,76 @@ pub fn parse_intake(
         });
     }
     Some(out)
+}
+
+/// A food diary's `Total` rows among the day's meals: summed with them, every such day was
+/// taken at twice its intake without a word. A total that matches the sum of the day's other
+/// rows is left out (noted); one that does not leaves the day unknown (its rows are dropped
+/// with a warning: the meals or the total are wrong, and which cannot be told). A `Total` row
+/// alone on its day is the day's intake.
+fn drop_total_rows(
+    rows: Vec<Parsed<RawIntake>>,
+    table: &Table,
+    ctx: &FileCtx,
+    diags: &mut Vec<Diagnostic>,
+) -> Vec<Parsed<RawIntake>> {
+    if !rows.iter().any(|r| r.value.total) {
+        return rows;
+    }
+    /// A day's other rows (their sum and number) and its totals (line, kcal).
+    type DayTotals = (f64, usize, Vec<(u64, f64)>);
+    let mut days: BTreeMap<NaiveDate, DayTotals> = BTreeMap::new();
+    for r in &rows {
+        let day = days.entry(r.date).or_default();
+        if r.value.total {
+            day.2.push((r.line, r.value.kcal));
+        } else {
+            day.0 += r.value.kcal;
+            day.1 += 1;
+        }
+    }
+    let kcol = table.column("kcal");
+    let (mut matched, mut first) = (0usize, None);
+    let mut unknown_days = std::collections::BTreeSet::new();
+    for (date, (sum, others, totals)) in &days {
+        if totals.is_empty() || (*others == 0 && totals.len() == 1) {
+            continue;
+        }
+        if *others > 0 && totals.iter().all(|(_, t)| total_matches(*t, *sum)) {
+            matched += totals.len();
+            first.get_or_insert(totals[0].0);
+            continue;
+        }
+        let (line, t) = totals[0];
+        unknown_days.insert(*date);
+        diags.push(
+            ctx.warning(format!(
+                "line {line} is the total of {date}, but its {} kcal are not the sum of the day's other rows ({} kcal); the day is dropped, as which is right cannot be told",
+                t, sum
+            ))
+            .at(line, kcol)
+            .field("kcal")
+            .expected(format!("a total equal to the day's other rows, {sum} kcal"))
+            .found(format!("{t} kcal"))
+            .hint("correct the day's rows or its total, or delete the total rows (the tool sums a day's rows itself)"),
+        );
+    }
+    if let Some(line) = first {
+        let rows = if matched == 1 {
+            "1 row"
+        } else {
+            &format!("{matched} rows")
+        };
+        ctx.note(format!(
+            "{rows} giving a day's total of the other rows (first on line {line}) left out: the day's rows are summed"
+        ));
+    }
+    rows.into_iter()
+        .filter(|r| {
+            let total_of_others = r.value.total && days[&r.date].1 > 0;
+            !(unknown_days.contains(&r.date) || total_of_others)
+        })
+        .collect()
 }
 
 /// A parsed activity row: (activity, minutes, MET, source of the MET, steps).

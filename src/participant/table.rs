@@ -159,6 +159,8 @@ pub struct Table {
     /// The date system of the file's spreadsheet serial dates, with the first one read (as
     /// written, and its date), when it has any.
     serial_dates: Option<(SerialDates, String, NaiveDate)>,
+    /// Rows with a summary label where the date would be (`Average`): how many, and the first.
+    summary_rows: RefCell<(usize, Option<(u64, String)>)>,
 }
 
 impl Table {
@@ -196,6 +198,15 @@ impl Table {
     /// The unit written in the header of `col` (`Weight (lb)` → `lb`), lowercase.
     pub fn header_unit(&self, col: &str) -> Option<&str> {
         self.units.get(col).map(String::as_str)
+    }
+
+    /// Whether a field of `row` outside our columns (a `Meal` column, say) holds one of
+    /// `labels` (lowercase), whatever its case, spacing or final colon (`TOTAL:`).
+    pub fn row_labelled(&self, row: &Row, labels: &[&str]) -> bool {
+        (0..self.width)
+            .filter(|i| !self.columns.values().any(|c| c == i))
+            .filter_map(|i| self.field(row, i))
+            .any(|f| is_label(f, labels))
     }
 
     /// Whether rows `a` and `b` hold the same text in every field.
@@ -236,6 +247,7 @@ impl Table {
             utc_converted: Cell::new(false),
             dates_in_utc: false,
             serial_dates: None,
+            summary_rows: RefCell::new((0, None)),
         }
     }
 
@@ -283,6 +295,16 @@ impl Table {
             parts.push(format!(
                 "dates written as spreadsheet serial numbers read in the {} date system, the only one that puts them within the program (`{example}` = {date})",
                 system.name()
+            ));
+        }
+        if let (n, Some((line, label))) = &*self.summary_rows.borrow() {
+            let rows = if *n == 1 {
+                "1 row"
+            } else {
+                &format!("{n} rows")
+            };
+            parts.push(format!(
+                "{rows} summing up the others (`{label}` on line {line}) left out: not measurements"
             ));
         }
         for (written, col) in &self.renamed {
@@ -1399,6 +1421,31 @@ fn iso_date(s: &str) -> Option<NaiveDate> {
     NaiveDate::from_ymd_opt(i32::try_from(y).ok()?, m, d)
 }
 
+/// Words of rows that sum up the others (a spreadsheet's `Average` row, a food diary's `Total`).
+pub const SUMMARY_LABELS: [&str; 14] = [
+    "total",
+    "totals",
+    "daily total",
+    "sum",
+    "average",
+    "avg",
+    "mean",
+    "median",
+    "min",
+    "max",
+    "summe",
+    "gesamt",
+    "durchschnitt",
+    "mittelwert",
+];
+
+/// Whether `text` is one of `labels` (lowercase), whatever its case, spacing or final colon.
+pub fn is_label(text: &str, labels: &[&str]) -> bool {
+    let t = text.trim().trim_end_matches(':').trim().to_lowercase();
+    let t = t.split_whitespace().collect::<Vec<_>>().join(" ");
+    labels.contains(&t.as_str())
+}
+
 /// A bad value that was warned about and left out.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Dropped;
@@ -1464,6 +1511,14 @@ impl Cells<'_> {
                     self.table.utc_converted.set(true);
                 }
                 Some(w)
+            }
+            // A row that sums up the others (`Average`, `Total` where the date would be) is no
+            // measurement: left out, and counted for the file's note.
+            None if is_label(s, &SUMMARY_LABELS) => {
+                let mut rows = self.table.summary_rows.borrow_mut();
+                rows.0 += 1;
+                rows.1.get_or_insert((self.row.line, s.to_string()));
+                None
             }
             None => {
                 let probe = NaiveDate::from_ymd_opt(2026, 4, 1)

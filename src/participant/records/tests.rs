@@ -864,3 +864,79 @@ fn durations_written_as_clock_times_or_with_units_are_read() {
         diags[0]
     );
 }
+
+/// A food diary prints a `Total` row under each day's meals: summed with them, the day was
+/// taken at twice its intake, without a word.
+#[test]
+fn a_food_diarys_total_rows_are_not_added_to_the_meals() {
+    let c = ctx("intake.csv");
+    let mut diags = Vec::new();
+    let v = parse_intake(
+        "Date,Meal,Calories,Protein (g)\n2026-04-01,Breakfast,420,20\n2026-04-01,Lunch,\"1,020\",45\n2026-04-01,TOTAL:,\"1,440\",65\n2026-04-02,Dinner,700,42\n2026-04-02,Total,900,50\n2026-04-03,Total,1800,70\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    // 1 April: the meals (1,440 kcal, as the total says); 2 April: total and meals disagree,
+    // dropped; 3 April: a total alone is the day.
+    let days: Vec<(NaiveDate, f64, Option<f64>)> =
+        v.iter().map(|i| (i.date, i.kcal, i.protein_g)).collect();
+    assert_eq!(
+        days,
+        [
+            (d(2026, 4, 1), 1440.0, Some(65.0)),
+            (d(2026, 4, 3), 1800.0, Some(70.0))
+        ]
+    );
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+    // The extra `Meal` column, then the day whose total disagrees.
+    assert!(
+        diags[0].message.contains("extra column `Meal`"),
+        "{}",
+        diags[0]
+    );
+    assert_eq!((diags[1].line, diags[1].column), (Some(6), Some(3)));
+    assert!(
+        diags[1]
+            .message
+            .contains("900 kcal are not the sum of the day's other rows (700 kcal)"),
+        "{}",
+        diags[1]
+    );
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("1 row giving a day's total")),
+        "{notes:?}"
+    );
+}
+
+/// Spreadsheet summary rows (`Average`, `Total` where the date would be) are no measurements:
+/// left out with a note, not a warning per row.
+#[test]
+fn summary_rows_are_left_out_with_a_note() {
+    let c = ctx("weights.csv");
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date,weight,unit\n\n2026-04-01,72.5,kg\n2026-04-02,72.3,kg\n\nAverage,72.4,kg\nMAX:,72.5,kg\nnot a date,72,kg\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(w.len(), 2);
+    // Only the row that is neither a date nor a summary is warned about.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(8));
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("2 rows summing up the others (`Average` on line 6) left out")),
+        "{notes:?}"
+    );
+}
