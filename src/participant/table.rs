@@ -159,6 +159,9 @@ pub struct Table {
     /// The date system of the file's spreadsheet serial dates, with the first one read (as
     /// written, and its date), when it has any.
     serial_dates: Option<(SerialDates, String, NaiveDate)>,
+    /// The order of the file's numeric dates (`13/05/2026`), when it has any and the program
+    /// sets no format.
+    numeric_order: Option<NumericOrder>,
     /// Rows with a summary label where the date would be (`Average`): how many, and the first.
     summary_rows: RefCell<(usize, Option<(u64, String)>)>,
 }
@@ -247,6 +250,7 @@ impl Table {
             utc_converted: Cell::new(false),
             dates_in_utc: false,
             serial_dates: None,
+            numeric_order: None,
             summary_rows: RefCell::new((0, None)),
         }
     }
@@ -296,6 +300,15 @@ impl Table {
                 "dates written as spreadsheet serial numbers read in the {} date system, the only one that puts them within the program (`{example}` = {date})",
                 system.name()
             ));
+        }
+        if let Some(order) = self.numeric_order {
+            parts.push(
+                match order {
+                    NumericOrder::DayFirst => "dates such as `13/05/2026` read day first, the only order that reads every date of the file",
+                    NumericOrder::MonthFirst => "dates such as `05/13/2026` read month first, the only order that reads every date of the file",
+                }
+                .to_string(),
+            );
         }
         if let (n, Some((line, label))) = &*self.summary_rows.borrow() {
             let rows = if *n == 1 {
@@ -473,9 +486,12 @@ pub fn read_table(
             diags.push(d);
             return None;
         }
-        match serial_dates(&table, opts, ctx) {
-            Ok(found) => {
-                table.serial_dates = found;
+        match serial_dates(&table, opts, ctx)
+            .and_then(|serial| numeric_order(&table, opts, ctx).map(|order| (serial, order)))
+        {
+            Ok((serial, order)) => {
+                table.serial_dates = serial;
+                table.numeric_order = order;
                 Some(table)
             }
             Err(d) => {
@@ -1364,6 +1380,90 @@ fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<Naive
     None
 }
 
+/// Which comes first in a file's numeric dates written with slashes or dashes (`13/05/2026`,
+/// `05-13-2026`), for a program that has not set `input.date_format`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NumericOrder {
+    /// Day, month, year.
+    DayFirst,
+    /// Month, day, year.
+    MonthFirst,
+}
+
+/// The first number, the second, the year and the separator of a numeric date.
+type NumericParts = (u32, u32, i32, char);
+
+/// The (first, second, year, separator) of `dd/mm/yyyy`-like text (one or two digits for the
+/// first two, slashes or dashes), before any time.
+fn numeric_parts(s: &str) -> Option<NumericParts> {
+    let day = s.split([' ', 'T']).next()?;
+    let sep = if day.contains('/') { '/' } else { '-' };
+    let parts: Vec<&str> = day.split(sep).collect();
+    let [a, b, y] = parts.as_slice() else {
+        return None;
+    };
+    let digits = |t: &str, n: std::ops::RangeInclusive<usize>| {
+        n.contains(&t.len()) && t.bytes().all(|c| c.is_ascii_digit())
+    };
+    if !(digits(a, 1..=2) && digits(b, 1..=2) && digits(y, 4..=4)) {
+        return None;
+    }
+    Some((a.parse().ok()?, b.parse().ok()?, y.parse().ok()?, sep))
+}
+
+/// The order of a file's numeric dates (see [`NumericOrder`]): the one that reads every one of
+/// them as a real date, when only one does (a date such as `13/05/2026` tells). When both do
+/// (every day is the 12th or before), the dates cannot be read without a guess and the file is
+/// refused at the first; when neither does, each date that does not read is warned about.
+fn numeric_order(
+    table: &Table,
+    opts: &CsvOptions,
+    ctx: &FileCtx,
+) -> Result<Option<NumericOrder>, Box<Diagnostic>> {
+    if opts.date_format != "%Y-%m-%d" {
+        return Ok(None);
+    }
+    let dates: Vec<(&Row, &str, NumericParts)> = table
+        .rows
+        .iter()
+        .filter_map(|r| {
+            let s = table.get(r, "date")?;
+            Some((r, s, numeric_parts(s)?))
+        })
+        .filter(|(_, s, _)| parse_when(s, opts).is_none())
+        .collect();
+    let Some(&(first_row, first, _)) = dates.first() else {
+        return Ok(None);
+    };
+    let all = |f: fn(u32, u32, i32) -> Option<NaiveDate>| {
+        dates
+            .iter()
+            .all(|(_, _, (a, b, y, _))| f(*a, *b, *y).is_some())
+    };
+    let day_first = all(|a, b, y| NaiveDate::from_ymd_opt(y, b, a));
+    let month_first = all(|a, b, y| NaiveDate::from_ymd_opt(y, a, b));
+    match (day_first, month_first) {
+        (true, false) => Ok(Some(NumericOrder::DayFirst)),
+        (false, true) => Ok(Some(NumericOrder::MonthFirst)),
+        (false, false) => Ok(None),
+        (true, true) => {
+            let sep = dates[0].2.3;
+            Err(Box::new(
+                ctx.error(format!(
+                    "no date of the file tells whether its day or its month comes first (`{first}`: every day is the 12th or before), so its dates cannot be read without a guess; the file is not used"
+                ))
+                .at(first_row.line, table.column("date"))
+                .field("date")
+                .expected("ISO 8601 dates (`2026-05-01`), or the order set in program.yaml")
+                .found(format!("`{first}`"))
+                .hint(format!(
+                    "set `input.date_format: \"%d{sep}%m{sep}%Y\"` (day first) or `\"%m{sep}%d{sep}%Y\"` (month first) in program.yaml, or export the dates as ISO 8601"
+                )),
+            ))
+        }
+    }
+}
+
 /// A file whose dotted dates are month first (`05.13.2026`): read day first (see
 /// [`written_out`]) its dates up to the 12th would be on the wrong day, so it is refused at the
 /// first date that shows it.
@@ -1501,7 +1601,9 @@ impl Cells<'_> {
             // Pushes the "is empty" warning.
             return self.required_text(col, diags).and(None);
         };
-        let when = parse_when(s, self.opts).or_else(|| self.serial_date(s));
+        let when = parse_when(s, self.opts)
+            .or_else(|| self.serial_date(s))
+            .or_else(|| self.numeric_date(s));
         match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
@@ -1554,6 +1656,32 @@ impl Cells<'_> {
                 None
             }
         }
+    }
+
+    /// A numeric date (`13/05/2026`) in the order found for the file (see [`NumericOrder`]),
+    /// with a time if one follows.
+    fn numeric_date(&self, s: &str) -> Option<When> {
+        let order = self.table.numeric_order?;
+        let (a, b, y, _) = numeric_parts(s)?;
+        let (day, month) = match order {
+            NumericOrder::DayFirst => (a, b),
+            NumericOrder::MonthFirst => (b, a),
+        };
+        let date = NaiveDate::from_ymd_opt(y, month, day)?;
+        let rest = s.split_once([' ', 'T']).map(|(_, t)| t.trim());
+        let time = match rest {
+            None | Some("") => None,
+            Some(t) => Some(
+                ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"]
+                    .iter()
+                    .find_map(|f| NaiveTime::parse_from_str(t, f).ok())?,
+            ),
+        };
+        Some(When {
+            date,
+            time,
+            from_utc: false,
+        })
     }
 
     /// A spreadsheet serial date, in the date system found for the file (see [`SerialDates`]).
@@ -2305,8 +2433,10 @@ mod tests {
     #[test]
     fn bad_dates_suggest_the_format() {
         let opts = CsvOptions::default();
+        // Day first on line 2, month first on line 4: no order reads the file, so each is
+        // named with the format it fits.
         let (t, _) = read(
-            "date,weight,unit\n01/04/2026,72,kg\n2026-02-30,72,kg\n",
+            "date,weight,unit\n13/04/2026,72,kg\n2026-02-30,72,kg\n04/13/2026,72,kg\n",
             &opts,
         );
         let t = t.unwrap();
@@ -2334,6 +2464,69 @@ mod tests {
         assert_eq!(
             d[1].expected.as_deref(),
             Some("a date like `2026-04-01` (format `%Y-%m-%d`) or an ISO 8601 date-time")
+        );
+        assert!(
+            d[2].hint.as_deref().unwrap().contains("%m/%d/%Y"),
+            "{}",
+            d[2]
+        );
+    }
+
+    #[test]
+    fn numeric_dates_are_read_in_the_one_order_that_reads_them_all() {
+        let opts = CsvOptions::default();
+        let dates = |text: &str| {
+            let (t, d) = read(text, &opts);
+            let got = t.map(|t| {
+                let ctx = FileCtx::new("P1", "w.csv");
+                let mut d2 = Vec::new();
+                let v: Vec<String> = t
+                    .rows
+                    .iter()
+                    .map(|row| {
+                        let c = Cells {
+                            table: &t,
+                            row,
+                            ctx: &ctx,
+                            opts: &opts,
+                        };
+                        let w = c.when("date", &mut d2).unwrap();
+                        format!(
+                            "{}{}",
+                            w.date,
+                            w.time.map(|t| format!(" {t}")).unwrap_or_default()
+                        )
+                    })
+                    .collect();
+                assert!(d2.is_empty(), "{d2:?}");
+                v
+            });
+            (got, d)
+        };
+        // A US clinic export: 05/13 tells the order, so 05/01 is 1 May (not 5 January).
+        let (got, d) = dates("date,weight,unit\n05/01/2026,90,kg\n05/13/2026 7:10 AM,89.5,kg\n");
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01", "2026-05-13 07:10:00"]);
+        // A British spreadsheet with dashes: 13-05 tells, so 01-05 is 1 May.
+        let (got, d) = dates("date,weight,unit\n01-05-2026,90,kg\n13-05-2026,89.5,kg\n");
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01", "2026-05-13"]);
+        // Nothing tells: refused at the first date, naming both ways to settle it.
+        let (got, d) =
+            dates("date,weight,unit\n2026-04-30,90,kg\n05/01/2026,90,kg\n06/01/2026,89.5,kg\n");
+        assert!(got.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)));
+        assert!(
+            d[0].message.contains("day or its month comes first"),
+            "{}",
+            d[0]
+        );
+        assert!(
+            d[0].hint.as_deref().unwrap().contains("%m/%d/%Y"),
+            "{}",
+            d[0]
         );
     }
 

@@ -29,6 +29,8 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("weights-german-scale.csv", 3, false),
     ("weights-summary-rows.csv", 2, false),
     ("weights-clinic-quoted-multiline.csv", 3, false),
+    ("weights-clinic-us-dates.csv", 3, false),
+    ("weights-ambiguous-slash-dates.csv", 0, true),
     ("intake-food-diary-per-meal.csv", 2, false),
     ("intake-food-diary-with-daily-totals.csv", 2, false),
     ("intake-title-line.csv", 2, false),
@@ -256,10 +258,18 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         kg("weights-clinic-quoted-multiline.csv"),
         &[198.2 * LB, 196.9 * LB, 195.5 * LB],
     );
+    // Month first, as 05/18 shows: 05/04 is 4 May.
+    assert_eq!(
+        days("weights-clinic-us-dates.csv"),
+        [d(5, 4), d(5, 18), d(6, 1)]
+    );
     // The refusals name the cell and both readings.
     let e = got["weights-unit-column-disagrees.csv"].errors()[0];
     assert_eq!((e.line, e.column), (Some(3), Some(2)));
     assert_eq!(e.found.as_deref(), Some("`160.4 lb`"));
+    let e = got["weights-ambiguous-slash-dates.csv"].errors()[0];
+    assert_eq!((e.line, e.column), (Some(2), Some(1)));
+    assert_eq!(e.found.as_deref(), Some("`04/05/2026`"));
     let e = got["weights-excel-serial-unplaceable.csv"].errors()[0];
     assert_eq!((e.line, e.column), (Some(2), Some(1)));
     assert!(
