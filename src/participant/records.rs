@@ -522,14 +522,17 @@ pub fn parse_weights(
             }
         };
         let time = c.text("time").and_then(|t| {
-            match NaiveTime::parse_from_str(t, "%H:%M")
-                .or_else(|_| NaiveTime::parse_from_str(t, "%H:%M:%S"))
+            // 24-hour or 12-hour (`7:12 AM`, as US-locale apps write it).
+            match ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"]
+                .iter()
+                .find_map(|f| NaiveTime::parse_from_str(t, f).ok())
+                .ok_or(())
             {
                 Ok(tm) => Some(tm.format("%H:%M").to_string()),
                 Err(_) => {
                     d.push(
                         c.warn("time", "unreadable time; the time is ignored")
-                            .expected("a time of day HH:MM, e.g. `07:30`")
+                            .expected("a time of day HH:MM, e.g. `07:30` (or `7:30 AM`)")
                             .found(format!("`{t}`")),
                     );
                     None

@@ -1598,6 +1598,15 @@ impl Cells<'_> {
     /// A required date, with its time of day when one was written (see [`parse_when`]).
     pub fn when(&self, col: &str, diags: &mut Vec<Diagnostic>) -> Option<When> {
         let Some(s) = self.text(col) else {
+            // A row without a date that sums up the others (`,Total,120` under an activity's
+            // rows) is no measurement either.
+            if let Some(label) = (0..self.table.width)
+                .filter_map(|i| self.table.field(self.row, i))
+                .find(|f| is_label(f, &SUMMARY_LABELS))
+            {
+                self.summary_row(label);
+                return None;
+            }
             // Pushes the "is empty" warning.
             return self.required_text(col, diags).and(None);
         };
@@ -1617,9 +1626,7 @@ impl Cells<'_> {
             // A row that sums up the others (`Average`, `Total` where the date would be) is no
             // measurement: left out, and counted for the file's note.
             None if is_label(s, &SUMMARY_LABELS) => {
-                let mut rows = self.table.summary_rows.borrow_mut();
-                rows.0 += 1;
-                rows.1.get_or_insert((self.row.line, s.to_string()));
+                self.summary_row(s);
                 None
             }
             None => {
@@ -1656,6 +1663,13 @@ impl Cells<'_> {
                 None
             }
         }
+    }
+
+    /// Counts this row as one that sums up the others (`label`), for the file's note.
+    fn summary_row(&self, label: &str) {
+        let mut rows = self.table.summary_rows.borrow_mut();
+        rows.0 += 1;
+        rows.1.get_or_insert((self.row.line, label.to_string()));
     }
 
     /// A numeric date (`13/05/2026`) in the order found for the file (see [`NumericOrder`]),

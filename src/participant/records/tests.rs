@@ -940,3 +940,41 @@ fn summary_rows_are_left_out_with_a_note() {
         "{notes:?}"
     );
 }
+
+/// A summary row without a date (`,Total,120` under an activity log) is left out with the
+/// note, not warned about as a row with an empty date; a time of day may be 12-hour.
+#[test]
+fn a_summary_row_without_a_date_is_left_out_and_times_may_be_twelve_hour() {
+    let c = ctx("activity.csv");
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        "date,activity,minutes\n2026-04-01,brisk walk,30\n2026-04-02,Yoga,45\n,Total,75\n,brisk walk,20\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(
+        a.iter().map(|x| x.minutes).collect::<Vec<_>>(),
+        [30.0, 45.0]
+    );
+    // The dateless row that is no total is still named.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(5));
+    assert!(diags[0].message.contains("`date` is empty"), "{}", diags[0]);
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("1 row summing up the others (`Total` on line 4)")),
+        "{notes:?}"
+    );
+    let (w, diags) =
+        weights("date,time,weight,unit\n2026-04-01,7:12 AM,72.5,kg\n2026-04-01,7:40 PM,73,kg\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(
+        w.iter().map(|x| x.time.as_deref()).collect::<Vec<_>>(),
+        [Some("07:12"), Some("19:40")]
+    );
+}
