@@ -706,9 +706,58 @@ pub fn parse_intake(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<IntakeDay>> {
     let table = read_table(text, &INTAKE, opts, ctx, diags)?;
+    // The first energy whose unit in the cell disagrees with the header's.
+    let mut conflict: Option<Diagnostic> = None;
+    // Whether any cell wrote its energy unit (then an `Energy` header needs none).
+    let mut units_in_cells = false;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
-        let mut kcal = c.number("kcal", d)?;
-        if c.table.header_unit("kcal") == Some("kj") {
+        let raw = c.required_text("kcal", d)?;
+        // A unit may be written in the cell (`1,850 kcal`, `7950 kJ`), as diaries print them.
+        let (num, in_cell) = match split_value_unit(&raw) {
+            // No number first (`n/a`): read as a number, which names what was found.
+            ("", _) => (raw.as_str(), None),
+            (num, None) => (num, None),
+            (num, Some(u)) => match energy_unit(u) {
+                Some(kj) => (num, Some(kj)),
+                None => {
+                    d.push(
+                        c.warn(
+                            "kcal",
+                            "unknown energy unit in the cell; the row is dropped",
+                        )
+                        .expected("kcal (`1850`, `1850 kcal`, `1850 Cal`) or kJ (`7950 kJ`)")
+                        .found(format!("`{raw}`")),
+                    );
+                    return None;
+                }
+            },
+        };
+        let mut kcal = c.parse_number("kcal", num, "the row is dropped", d)?;
+        let header_kj = c.table.header_unit("kcal").map(|u| u == "kj");
+        if let (Some(cell_kj), Some(said_kj)) = (in_cell, header_kj)
+            && cell_kj != said_kj
+        {
+            let name = |kj: bool| if kj { "kJ" } else { "kcal" };
+            conflict.get_or_insert_with(|| {
+                c.ctx
+                    .error(format!(
+                        "the energy `{raw}` is written in {} but the header `{}` says {}; the file is not used, as it cannot say which unit its energy is in",
+                        name(cell_kj),
+                        c.table.written_header("kcal").unwrap_or("kcal"),
+                        name(said_kj)
+                    ))
+                    .at(c.row.line, c.table.column("kcal"))
+                    .field("kcal")
+                    .expected(format!("energy in {}, as the header says", name(said_kj)))
+                    .found(format!("`{raw}`"))
+                    .hint("correct the cell or the header")
+            });
+            return None;
+        }
+        if in_cell.is_some() {
+            units_in_cells = true;
+        }
+        if in_cell.or(header_kj) == Some(true) {
             // 1 kcal = 4.184 kJ (thermochemical calorie, exact by definition).
             kcal /= 4.184;
         }
@@ -722,7 +771,19 @@ pub fn parse_intake(
         }
         let mut macros = [None; 4];
         for (slot, col) in macros.iter_mut().zip(MACROS) {
-            match c.optional_number(col, "the value is ignored", d) {
+            // Grams may be written in the cell (`45 g`).
+            let grams = c.text(col).map(|t| match split_value_unit(t) {
+                (num, Some(u)) if u.eq_ignore_ascii_case("g") => num,
+                _ => t,
+            });
+            let read = match grams {
+                None => Ok(None),
+                Some(t) => c
+                    .parse_number(col, t, "the value is ignored", d)
+                    .map(Some)
+                    .ok_or(Dropped),
+            };
+            match read {
                 Ok(Some(v)) if v < 0.0 => d.push(
                     c.warn(col, format!("negative `{col}`; the value is ignored"))
                         .expected("grams ≥ 0")
@@ -739,6 +800,10 @@ pub fn parse_intake(
             total,
         })
     });
+    if let Some(e) = conflict {
+        diags.push(e);
+        return None;
+    }
     note_identical_same_day(&rows, "intake", ctx);
     let rows = in_window(rows, w, &table, ctx, diags);
     table.describe(opts, ctx);
@@ -784,6 +849,7 @@ pub fn parse_intake(
         // `Dietary Energy`: phone health apps write kJ or kcal by the phone's region.
         && matches!(header_key(written).0.as_str(), "energy" | "dietary_energy")
         && table.header_unit("kcal").is_none()
+        && !units_in_cells
         && days.len() >= 3
     {
         let mut totals: Vec<f64> = days.values().map(|d| d.kcal).collect();
@@ -839,6 +905,17 @@ pub fn parse_intake(
         });
     }
     Some(out)
+}
+
+/// An energy unit written in a cell: `Some(true)` for kilojoules, `Some(false)` for kilocalories
+/// (`Cal`, `cal` and `calories` on food labels and in diaries are kilocalories).
+fn energy_unit(u: &str) -> Option<bool> {
+    match u.trim().trim_end_matches('.').to_lowercase().as_str() {
+        "kj" | "kilojoule" | "kilojoules" => Some(true),
+        "kcal" | "kcals" | "cal" | "cals" | "calorie" | "calories" | "kilocalorie"
+        | "kilocalories" => Some(false),
+        _ => None,
+    }
 }
 
 /// A food diary's `Total` rows among the day's meals: summed with them, every such day was

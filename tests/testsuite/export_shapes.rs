@@ -35,6 +35,7 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("intake-food-diary-with-daily-totals.csv", 2, false),
     ("intake-title-line.csv", 2, false),
     ("intake-kj-semicolon-bom.csv", 2, false),
+    ("intake-diary-units-in-cells.csv", 2, false),
     ("activity-hms-durations.csv", 3, false),
     ("activity-minutes-in-cell.csv", 4, false),
     ("activity-start-times.csv", 3, false),
@@ -288,6 +289,10 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
     assert_eq!(
         intake("intake-title-line.csv"),
         [(d(5, 1), 1850.0, None), (d(5, 2), 2010.0, None)]
+    );
+    assert_eq!(
+        intake("intake-diary-units-in-cells.csv"),
+        [(d(5, 1), 1440.0, Some(65.0)), (d(5, 2), 700.0, Some(42.0))]
     );
     // kJ / 4.184 = kcal (thermochemical calorie); `7 950` and `8.368` group thousands.
     let kj = intake("intake-kj-semicolon-bom.csv");

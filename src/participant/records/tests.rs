@@ -978,3 +978,43 @@ fn a_summary_row_without_a_date_is_left_out_and_times_may_be_twelve_hour() {
         [Some("07:12"), Some("19:40")]
     );
 }
+
+/// Diaries print the unit with the energy and grams with the macros; every such row was
+/// dropped as not a number (and the macros ignored).
+#[test]
+fn energy_and_grams_written_with_their_units_are_read() {
+    let (v, diags) = intake(
+        "date,kcal,protein_g\n2026-04-01,\"1,850 kcal\",72 g\n2026-04-02,2100 Cal,80\n2026-04-03,8368 kJ,85.5 g\n2026-04-04,n/a,1\n",
+    );
+    let got: Vec<(f64, Option<f64>)> = v.iter().map(|i| (i.kcal, i.protein_g)).collect();
+    // 8368 kJ / 4.184 kJ/kcal (thermochemical calorie) = 2000 kcal.
+    assert_eq!(
+        got,
+        [
+            (1850.0, Some(72.0)),
+            (2100.0, Some(80.0)),
+            (2000.0, Some(85.5))
+        ]
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(diags[0].message.contains("not a number"), "{}", diags[0]);
+    // A unit in the cell that the header contradicts refuses the file at that cell.
+    let mut diags = Vec::new();
+    let v = parse_intake(
+        "date,Energy (kJ)\n2026-04-01,8000\n2026-04-02,1900 kcal\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(v.is_none());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(2)));
+    assert!(
+        diags[0]
+            .message
+            .contains("`1900 kcal` is written in kcal but the header `Energy (kJ)` says kJ"),
+        "{}",
+        diags[0]
+    );
+}
