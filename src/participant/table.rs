@@ -1016,6 +1016,8 @@ fn read_records(
         .max()
         .copied();
     let (mut short_rows, mut trailing_empty) = (0usize, 0usize);
+    // The first line that repeats the header.
+    let mut repeated_headers: Option<u64> = None;
     let headers = columns
         .iter()
         .map(|(c, &i)| (*c, written[i].clone()))
@@ -1065,6 +1067,11 @@ fn read_records(
         }
         let line = line_of(rec.position());
         if rec.iter().all(|f| f.trim().is_empty()) {
+            continue;
+        }
+        // The header again (exports appended to one another): no data.
+        if rec.len() == written.len() && rec.iter().zip(&written).all(|(f, h)| f.trim() == h) {
+            repeated_headers.get_or_insert(line);
             continue;
         }
         if let Some(i) = rec.iter().position(|f| f.len() > MAX_CSV_FIELD_BYTES) {
@@ -1172,6 +1179,11 @@ fn read_records(
             format!("{} rows", crate::diag::thousands(n))
         }
     };
+    if let Some(line) = repeated_headers {
+        ctx.note(format!(
+            "the header is repeated inside the file (first on line {line}: exports joined together); such lines are not read as data"
+        ));
+    }
     if short_rows > 0 {
         ctx.note(format!(
             "{} with fewer fields than the header (values left off at the end) read with the missing values empty",
@@ -1948,6 +1960,23 @@ mod tests {
         );
         assert!(d.is_empty(), "{d:?}");
         assert_eq!(t.unwrap().rows.len(), 2);
+    }
+
+    #[test]
+    fn a_header_repeated_inside_the_file_is_not_a_row() {
+        // Two exports joined into one file: the second header was dropped as a row with an
+        // unreadable date (and, in a file of weights, warned about).
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text = "Date,Weight,Unit\n2026-05-01,72.5,kg\nDate,Weight,Unit\n2026-05-02,72.3,kg\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.rows.iter().map(|r| r.line).collect::<Vec<_>>(), [2, 4]);
+        assert!(
+            ctx.take_notes()[0]
+                .message
+                .contains("repeated inside the file (first on line 3"),
+        );
     }
 
     #[test]
