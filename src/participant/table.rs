@@ -553,7 +553,8 @@ pub const SERIAL_DATE_MARGIN_DAYS: i64 = 365;
 /// Whether `s` is written as a spreadsheet serial date: digits, and a fraction of a day.
 fn is_serial(s: &str) -> bool {
     let (int, frac) = s.split_once('.').unwrap_or((s, "0"));
-    (1..=7).contains(&int.len())
+    // Five digits: 10000 to 99999 are the years 1927 to 2173 in either system.
+    int.len() == 5
         && !frac.is_empty()
         && int.bytes().all(|b| b.is_ascii_digit())
         && frac.bytes().all(|b| b.is_ascii_digit())
@@ -599,6 +600,15 @@ fn serial_dates(
             .and_then(|v| system.date_time(v))
             .map_or("no date".to_string(), |dt| dt.date().to_string())
     };
+    // Among other dates, a serial date that cannot be placed is warned about on its own row.
+    let dated = table
+        .rows
+        .iter()
+        .filter(|r| table.get(r, "date").is_some())
+        .count();
+    if fitting.len() != 1 && serials.len() < dated {
+        return Ok(None);
+    }
     if let [system] = fitting.as_slice() {
         let date = first
             .parse::<f64>()
@@ -1458,6 +1468,17 @@ fn numeric_order(
         (true, false) => Ok(Some(NumericOrder::DayFirst)),
         (false, true) => Ok(Some(NumericOrder::MonthFirst)),
         (false, false) => Ok(None),
+        // Among other dates, the few that cannot be told are warned about one by one.
+        (true, true)
+            if dates.len()
+                < table
+                    .rows
+                    .iter()
+                    .filter(|r| table.get(r, "date").is_some())
+                    .count() =>
+        {
+            Ok(None)
+        }
         (true, true) => {
             let sep = dates[0].2.3;
             Err(Box::new(
@@ -1492,6 +1513,19 @@ fn dotted_month_first(table: &Table, opts: &CsvOptions, ctx: &FileCtx) -> Option
                 && NaiveDate::parse_from_str(day, "%m.%d.%Y").is_ok()
         })
     })?;
+    // Only a file with a dotted date that reads both ways, differently, would be misread; a
+    // lone month-first date is warned about as unreadable.
+    let both_ways = |r: &&Row| {
+        table.get(r, "date").is_some_and(|s| {
+            let day = s.split(' ').next().unwrap_or(s);
+            day.len() == 10
+                && day.as_bytes()[2] == b'.'
+                && day[..2] != day[3..5]
+                && NaiveDate::parse_from_str(day, "%d.%m.%Y").is_ok()
+                && NaiveDate::parse_from_str(day, "%m.%d.%Y").is_ok()
+        })
+    };
+    table.rows.iter().find(both_ways)?;
     let found = table.get(row, "date").unwrap_or("");
     Some(
         ctx.error(format!(
@@ -1639,6 +1673,25 @@ impl Cells<'_> {
             // measurement: left out, and counted for the file's note.
             None if is_label(s, &SUMMARY_LABELS) => {
                 self.summary_row(s);
+                None
+            }
+            None if is_serial(s) => {
+                let reading = |system: SerialDates| {
+                    s.parse::<f64>()
+                        .ok()
+                        .and_then(|v| system.date_time(v))
+                        .map_or("no date".to_string(), |dt| dt.date().to_string())
+                };
+                diags.push(
+                    self.warn(col, format!(
+                        "a spreadsheet serial date whose date system cannot be told (`{s}` is {} in the 1900 date system, {} in the 1904 one); the row is dropped",
+                        reading(SerialDates::From1900),
+                        reading(SerialDates::From1904)
+                    ))
+                    .expected("a date such as `2026-05-01`")
+                    .found(format!("`{s}`"))
+                    .hint("in the spreadsheet, format the date column as dates (e.g. yyyy-mm-dd) and save the CSV again"),
+                );
                 None
             }
             None => {
@@ -1980,6 +2033,51 @@ mod tests {
     }
 
     #[test]
+    fn a_few_dates_that_cannot_be_told_among_others_cost_their_rows_only() {
+        let opts = CsvOptions {
+            program_span: NaiveDate::from_ymd_opt(2026, 4, 1)
+                .zip(NaiveDate::from_ymd_opt(2026, 9, 30)),
+            ..CsvOptions::default()
+        };
+        // One ambiguous numeric date, one unplaceable serial date and one month-first dotted
+        // date among ISO dates: each row is warned about; the file is read.
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text =
+            "date,weight,unit\n2026-05-01,72,kg\n05/04/2026,72,kg\n40000,72,kg\n05.13.2026,72,kg\n";
+        let t = read_table(text, &SPEC, &opts, &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        let read: Vec<Option<String>> = t
+            .rows
+            .iter()
+            .map(|row| {
+                let c = Cells {
+                    table: &t,
+                    row,
+                    ctx: &ctx,
+                    opts: &opts,
+                };
+                c.date("date", &mut d).map(|x| x.to_string())
+            })
+            .collect();
+        assert_eq!(read, [Some("2026-05-01".to_string()), None, None, None]);
+        assert_eq!(
+            d.iter().map(|x| x.line).collect::<Vec<_>>(),
+            [Some(3), Some(4), Some(5)]
+        );
+        assert!(
+            d[1].message
+                .contains("`40000` is 2009-07-06 in the 1900 date system"),
+            "{}",
+            d[1]
+        );
+        assert!(
+            d.iter()
+                .all(|x| x.severity == crate::diag::Severity::Warning)
+        );
+    }
+
+    #[test]
     fn a_title_line_above_the_header_is_not_read_as_the_header() {
         // Trackers start some exports with the section's name; the file was refused for
         // missing columns.
@@ -2082,11 +2180,11 @@ mod tests {
         assert!(d.is_empty(), "{d:?}");
         assert_eq!(got.unwrap(), ["2026-05-01 None", "2026-05-02 None"]);
         // Neither system places 40000 (2009 or 2013) near the program: refused at that cell.
-        let (got, d, _) = dates("date,weight,unit\n2026-05-01,72,kg\n40000,72.5,kg\n", &opts);
+        let (got, d, _) = dates("date,weight,unit\n40000,72.5,kg\n40001,72,kg\n", &opts);
         assert!(got.is_none());
         assert_eq!(d.len(), 1, "{d:?}");
         assert_eq!(d[0].severity, crate::diag::Severity::Error);
-        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)));
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(1)));
         assert!(
             d[0].message.contains(
                 "`40000` is 2009-07-06 in the 1900 date system, 2013-07-07 in the 1904 one"
@@ -2555,12 +2653,11 @@ mod tests {
         assert!(d.is_empty(), "{d:?}");
         assert_eq!(got.unwrap(), ["2026-05-01", "2026-05-13"]);
         // Nothing tells: refused at the first date, naming both ways to settle it.
-        let (got, d) =
-            dates("date,weight,unit\n2026-04-30,90,kg\n05/01/2026,90,kg\n06/01/2026,89.5,kg\n");
+        let (got, d) = dates("date,weight,unit\n05/01/2026,90,kg\n06/01/2026,89.5,kg\n");
         assert!(got.is_none());
         assert_eq!(d.len(), 1, "{d:?}");
         assert_eq!(d[0].severity, crate::diag::Severity::Error);
-        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)));
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(1)));
         assert!(
             d[0].message.contains("day or its month comes first"),
             "{}",
