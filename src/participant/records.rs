@@ -505,7 +505,14 @@ pub fn parse_weights(
                 });
                 return None;
             }
-            (Some(cell), _) => cell,
+            (Some(cell), _) => {
+                c.table.recognised(if cell == WeightUnit::StLb {
+                    "stones and pounds (`14 st 2 lb` = 198 lb)"
+                } else {
+                    "weights with their unit in the cell (`72.5 kg`)"
+                });
+                cell
+            }
             (None, Some(said)) => WeightUnit::from(said),
             (None, None) => {
                 if c.table.column("unit").is_some() {
@@ -756,6 +763,8 @@ pub fn parse_intake(
         }
         if in_cell.is_some() {
             units_in_cells = true;
+            c.table
+                .recognised("energy with its unit in the cell (`1,850 kcal`, `7950 kJ`)");
         }
         if in_cell.or(header_kj) == Some(true) {
             // 1 kcal = 4.184 kJ (thermochemical calorie, exact by definition).
@@ -773,7 +782,10 @@ pub fn parse_intake(
         for (slot, col) in macros.iter_mut().zip(MACROS) {
             // Grams may be written in the cell (`45 g`).
             let grams = c.text(col).map(|t| match split_value_unit(t) {
-                (num, Some(u)) if u.eq_ignore_ascii_case("g") => num,
+                (num, Some(u)) if u.eq_ignore_ascii_case("g") => {
+                    c.table.recognised("grams written in the cells (`45 g`)");
+                    num
+                }
                 _ => t,
             });
             let read = match grams {
@@ -1040,7 +1052,11 @@ pub fn parse_activity(
                 let v = c.number("minutes", d)?;
                 if header_hours { v * 60.0 } else { v }
             }
-            WrittenDuration::Clock(m) => m,
+            WrittenDuration::Clock(m) => {
+                c.table
+                    .recognised("durations as h:mm:ss (`0:45:00` = 45 minutes)");
+                m
+            }
             WrittenDuration::Units(m, unit) => {
                 // One unit in the cell that the header contradicts (`45 min` under
                 // `Duration (h)`): which is right cannot be known.
@@ -1061,6 +1077,8 @@ pub fn parse_activity(
                     });
                     return None;
                 }
+                c.table
+                    .recognised("durations with their units (`45 min`, `1 h 15 min`)");
                 m
             }
             WrittenDuration::Ambiguous => {

@@ -164,6 +164,9 @@ pub struct Table {
     numeric_order: Option<NumericOrder>,
     /// Rows with a summary label where the date would be (`Average`): how many, and the first.
     summary_rows: RefCell<(usize, Option<(u64, String)>)>,
+    /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
+    /// the file's note.
+    recognised: RefCell<std::collections::BTreeSet<&'static str>>,
 }
 
 impl Table {
@@ -191,6 +194,11 @@ impl Table {
             .iter()
             .find(|(_, c)| *c == col)
             .map(|(w, _)| w.as_str())
+    }
+
+    /// Records a form of value recognised in the cells, stated once in the file's note.
+    pub fn recognised(&self, what: &'static str) {
+        self.recognised.borrow_mut().insert(what);
     }
 
     /// The header of `col` as written (`Weight (kg)`).
@@ -252,6 +260,7 @@ impl Table {
             serial_dates: None,
             numeric_order: None,
             summary_rows: RefCell::new((0, None)),
+            recognised: RefCell::default(),
         }
     }
 
@@ -301,6 +310,7 @@ impl Table {
                 system.name()
             ));
         }
+        parts.extend(self.recognised.borrow().iter().map(|w| w.to_string()));
         if let Some(order) = self.numeric_order {
             parts.push(
                 match order {
@@ -1377,8 +1387,12 @@ fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<Naive
         "%d-%b-%Y",
     ];
     const TIMES: [&str; 4] = ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"];
+    // The month's name is a word of three letters or more (`AM`, `PM` are not).
+    let named = s
+        .split([' ', ',', '-'])
+        .any(|w| w.len() >= 3 && w.chars().all(|c| c.is_ascii_alphabetic()));
     let b = s.as_bytes();
-    let dates: &[&str] = if s.bytes().any(|c| c.is_ascii_alphabetic()) {
+    let dates: &[&str] = if named {
         &NAMED
     } else if b.len() >= 10 && b[4] == b'/' {
         &["%Y/%m/%d"]
@@ -1663,6 +1677,27 @@ impl Cells<'_> {
             Some(w) => {
                 if w.time.is_some() {
                     self.table.timestamps.set(true);
+                }
+                // Written out rather than in the program's format or ISO 8601.
+                let b = s.as_bytes();
+                let month_word = |w: &str| {
+                    w.len() >= 3
+                        && w.chars().all(|c| c.is_ascii_alphabetic())
+                        && !w.eq_ignore_ascii_case("utc")
+                };
+                if s.split([' ', ',', '-']).any(month_word) {
+                    self.table
+                        .recognised("dates with the month's name (`May 1, 2026`)");
+                } else if b.len() >= 10
+                    && b[2] == b'.'
+                    && b[5] == b'.'
+                    && self.opts.date_format == "%Y-%m-%d"
+                {
+                    self.table
+                        .recognised("dotted dates read day first (`01.05.2026` = 1 May 2026)");
+                } else if b.len() >= 10 && b[4] == b'/' && !self.opts.date_format.contains('/') {
+                    self.table
+                        .recognised("dates written year/month/day (`2026/05/01`)");
                 }
                 if w.from_utc {
                     self.table.utc_converted.set(true);

@@ -1018,3 +1018,50 @@ fn energy_and_grams_written_with_their_units_are_read() {
         diags[0]
     );
 }
+
+/// `check` states what was recognised in the cells, once per file.
+#[test]
+fn forms_recognised_in_the_cells_are_stated_once_per_file() {
+    let notes =
+        |text: &str,
+         parse: fn(&str, &CsvOptions, &FileCtx, &Window, &mut Vec<Diagnostic>) -> bool| {
+            let c = ctx("f.csv");
+            let mut diags = Vec::new();
+            assert!(
+                parse(text, &CsvOptions::default(), &c, &window(), &mut diags),
+                "{diags:#?}"
+            );
+            c.take_notes()
+                .into_iter()
+                .map(|n| n.message)
+                .collect::<Vec<_>>()
+                .join(" | ")
+        };
+    let w = |t: &str, o: &CsvOptions, c: &FileCtx, w: &Window, d: &mut Vec<Diagnostic>| {
+        parse_weights(t, o, c, w, d).is_some()
+    };
+    let a = |t: &str, o: &CsvOptions, c: &FileCtx, w: &Window, d: &mut Vec<Diagnostic>| {
+        parse_activity(t, o, c, w, d).is_some()
+    };
+    let n = notes(
+        "Date,Weight\n\"May 1, 2026\",72.5 kg\n\"May 2, 2026\",14 st 2 lb\n01.05.2026 7:10 AM,72 kg\n",
+        w,
+    );
+    assert!(
+        n.contains("weights with their unit in the cell (`72.5 kg`)"),
+        "{n}"
+    );
+    assert!(
+        n.contains("stones and pounds (`14 st 2 lb` = 198 lb)"),
+        "{n}"
+    );
+    assert!(n.contains("dates with the month's name"), "{n}");
+    assert!(n.contains("dotted dates read day first"), "{n}");
+    let n = notes(
+        "date,activity,minutes\n2026-04-01,Yoga,0:45:00\n2026-04-02,Yoga,45 min\n",
+        a,
+    );
+    assert!(n.contains("durations as h:mm:ss"), "{n}");
+    assert!(n.contains("durations with their units"), "{n}");
+    assert!(!n.contains("month's name"), "{n}");
+}
