@@ -1377,7 +1377,7 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
 /// write it, always day first: common practice; a file whose dotted dates turn out month first
 /// is refused, see [`dotted_month_first`]). A time may follow (`07:12`, `07:12:30`, `7:12 AM`).
 fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<NaiveTime>)> {
-    const NAMED: [&str; 7] = [
+    const NAMED: [&str; 11] = [
         "%B %d, %Y",
         "%b %d, %Y",
         "%B %d %Y",
@@ -1385,6 +1385,11 @@ fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<Naive
         "%d %B %Y",
         "%d %b %Y",
         "%d-%b-%Y",
+        // With the weekday, which must be the date's (`Fri, May 1, 2026`).
+        "%a, %b %d, %Y",
+        "%A, %B %d, %Y",
+        "%a, %d %b %Y",
+        "%A, %d %B %Y",
     ];
     const TIMES: [&str; 4] = ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"];
     // The month's name is a word of three letters or more (`AM`, `PM` are not).
@@ -2017,8 +2022,18 @@ mod tests {
             day("2026-05-02 07:05:00 +0200", &opts),
             at("2026-05-02", "07:05:00")
         );
-        // Not dates: a summary row, a month-first dotted date, a day that does not exist.
-        for s in ["Average", "05.13.2026", "Feb 30, 2026", "2026/13/01"] {
+        // With the weekday (1 May 2026 is a Friday).
+        assert_eq!(day("Fri, May 1, 2026", &opts), may1);
+        assert_eq!(day("Friday, 1 May 2026", &opts), may1);
+        // Not dates: a summary row, a month-first dotted date, a day that does not exist, a
+        // weekday that is not the date's.
+        for s in [
+            "Average",
+            "05.13.2026",
+            "Feb 30, 2026",
+            "2026/13/01",
+            "Thu, May 1, 2026",
+        ] {
             assert_eq!(day(s, &opts), None, "{s}");
         }
         // A program with its own day-and-month format reads dotted dates only by it.
