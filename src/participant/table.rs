@@ -162,6 +162,9 @@ pub struct Table {
     /// The order of the file's numeric dates (`13/05/2026`), when it has any and the program
     /// sets no format.
     numeric_order: Option<NumericOrder>,
+    /// When dates come from date rows above the measurements: the field of the time of day,
+    /// which messages about a row's date point at.
+    date_rows_in: Option<usize>,
     /// Rows with a summary label where the date would be (`Average`): how many, and the first.
     summary_rows: RefCell<(usize, Option<(u64, String)>)>,
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
@@ -172,7 +175,10 @@ pub struct Table {
 impl Table {
     /// 1-based field number of `col` (for diagnostics), when the file has it.
     pub fn column(&self, col: &str) -> Option<u64> {
-        self.columns.get(col).map(|&i| i as u64 + 1)
+        match self.date_rows_in {
+            Some(t) if col == "date" => Some(t as u64 + 1),
+            _ => self.columns.get(col).map(|&i| i as u64 + 1),
+        }
     }
 
     /// The trimmed text of `col` in `row`; `None` when the column is absent or the cell empty.
@@ -259,6 +265,7 @@ impl Table {
             dates_in_utc: false,
             serial_dates: None,
             numeric_order: None,
+            date_rows_in: None,
             summary_rows: RefCell::new((0, None)),
             recognised: RefCell::default(),
         }
@@ -874,7 +881,12 @@ fn read_records(
         );
         return None;
     }
-    let written: Vec<String> = header.iter().map(|h| h.trim().to_string()).collect();
+    let mut written: Vec<String> = header.iter().map(|h| h.trim().to_string()).collect();
+    // A delimiter at the end of the header names no column (the rows' own trailing empty
+    // fields are ignored below; a value there is a field too many).
+    while written.len() > 1 && written.last().is_some_and(String::is_empty) {
+        written.pop();
+    }
     let names: Vec<String> = written.iter().map(|h| h.to_lowercase()).collect();
     let user_map = opts.columns.get(spec.kind());
     let mut columns = BTreeMap::new();
@@ -961,10 +973,18 @@ fn read_records(
             ),
         }
     }
+    // Dates written as rows of their own above the measurements, which have only a time of
+    // day (`Time,Weight,…` / `" Nov 25, 2026",` / `7:12 AM,72.5 kg,…`: a smart scale app's
+    // export): whether they are is known once the rows are read.
+    let time_for_date_rows: Option<usize> = (!columns.contains_key("date")
+        && spec.required.contains(&"date"))
+    .then(|| columns.get("time").copied())
+    .flatten();
     let missing: Vec<&str> = spec
         .required
         .iter()
         .filter(|c| !columns.contains_key(**c))
+        .filter(|c| !(**c == "date" && time_for_date_rows.is_some()))
         // A unit in the value column's header stands for the unit column.
         .filter(|c| {
             !spec
@@ -1036,19 +1056,28 @@ fn read_records(
         .max()
         .copied();
     let (mut short_rows, mut trailing_empty) = (0usize, 0usize);
+    // The date row above the rows being read, and how many there were.
+    let mut current_date: Option<(u64, String)> = None;
+    let mut date_rows = 0usize;
     // The first line that repeats the header.
     let mut repeated_headers: Option<u64> = None;
-    let headers = columns
+    let mut headers: BTreeMap<&'static str, String> = columns
         .iter()
         .map(|(c, &i)| (*c, written[i].clone()))
         .collect();
+    // The date of each measurement, from the date row above it, is kept as one more field.
+    if let Some(t) = time_for_date_rows {
+        columns.insert("date", names.len());
+        headers.insert("date", written[t].clone());
+    }
     let mut table = Table {
         columns,
         headers,
         rows: Vec::new(),
         text: String::with_capacity(text.len()),
         bounds: Vec::new(),
-        width: names.len(),
+        width: names.len() + usize::from(time_for_date_rows.is_some()),
+        date_rows_in: time_for_date_rows,
         units,
         renamed,
         header_line,
@@ -1090,8 +1119,21 @@ fn read_records(
             continue;
         }
         // The header again (exports appended to one another): no data.
-        if rec.len() == written.len() && rec.iter().zip(&written).all(|(f, h)| f.trim() == h) {
+        if rec.len() >= written.len()
+            && rec.iter().zip(&written).all(|(f, h)| f.trim() == h)
+            && rec.iter().skip(written.len()).all(|f| f.trim().is_empty())
+        {
             repeated_headers.get_or_insert(line);
+            continue;
+        }
+        // A date row: the date alone, in the first field.
+        if time_for_date_rows.is_some()
+            && let Some(first) = rec.get(0).map(str::trim)
+            && rec.iter().skip(1).all(|f| f.trim().is_empty())
+            && parse_when(first, opts).is_some_and(|w| w.time.is_none())
+        {
+            current_date = Some((line, first.to_string()));
+            date_rows += 1;
             continue;
         }
         if let Some(i) = rec.iter().position(|f| f.len() > MAX_CSV_FIELD_BYTES) {
@@ -1171,23 +1213,49 @@ fn read_records(
             let end = table.text.len();
             table.bounds.push((end, end));
         }
+        if time_for_date_rows.is_some() {
+            let start = table.text.len();
+            if let Some((_, d)) = &current_date {
+                table.text.push_str(d);
+            }
+            table.bounds.push((start, table.text.len()));
+        }
         table.rows.push(Row { line, first });
+    }
+    let has_unit =
+        |s: &str| s.chars().any(|c| c.is_ascii_digit()) && s.chars().any(char::is_alphabetic);
+    // Date rows were to stand for a missing date column: without any, it is missing after all
+    // (and so is a unit column that units in the cells do not stand for).
+    if time_for_date_rows.is_some() && date_rows == 0 {
+        let units_there = units_in_cells.is_some_and(|v| {
+            table
+                .rows
+                .iter()
+                .any(|r| table.get(r, v).is_some_and(has_unit))
+        });
+        let mut missing: Vec<&str> = missing.iter().copied().filter(|_| !units_there).collect();
+        missing.insert(0, "date");
+        diags.push(missing_error(&missing));
+        return None;
+    }
+    if date_rows > 0 {
+        ctx.note(format!(
+            "dates taken from the {} date rows above the measurements, whose `{}` column holds their time of day",
+            crate::diag::thousands(date_rows),
+            written[time_for_date_rows.unwrap_or(0)]
+        ));
     }
     // Units in the cells were to stand for a missing unit column: without any, the column is
     // missing after all.
     if let Some(v) = units_in_cells
         && !missing.is_empty()
-    {
-        let has_unit =
-            |s: &str| s.chars().any(|c| c.is_ascii_digit()) && s.chars().any(char::is_alphabetic);
-        if !table
+        && !table
             .rows
             .iter()
             .any(|r| table.get(r, v).is_some_and(has_unit))
-        {
-            diags.push(missing_error(&missing));
-            return None;
-        }
+    {
+        diags.push(missing_error(&missing));
+        return None;
     }
     // Extra columns are only worth a word when the header itself is right.
     diags.extend(extra);

@@ -30,6 +30,7 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("weights-summary-rows.csv", 2, false),
     ("weights-clinic-quoted-multiline.csv", 3, false),
     ("weights-clinic-us-dates.csv", 3, false),
+    ("weights-scale-app-date-rows.csv", 3, false),
     ("weights-ambiguous-slash-dates.csv", 0, true),
     ("intake-food-diary-per-meal.csv", 2, false),
     ("intake-food-diary-with-daily-totals.csv", 2, false),
@@ -259,6 +260,19 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         kg("weights-clinic-quoted-multiline.csv"),
         &[198.2 * LB, 196.9 * LB, 195.5 * LB],
     );
+    // Date rows above the measurements, 12-hour times, units in the cells.
+    let rows = &got["weights-scale-app-date-rows.csv"].weights;
+    assert_eq!(
+        rows.iter()
+            .map(|w| (w.0, w.1.as_deref()))
+            .collect::<Vec<_>>(),
+        [
+            (d(5, 1), Some("07:12")),
+            (d(5, 1), Some("21:40")),
+            (d(5, 2), Some("07:05"))
+        ]
+    );
+    same(kg("weights-scale-app-date-rows.csv"), &[72.5, 73.1, 72.3]);
     // Month first, as 05/18 shows: 05/04 is 4 May.
     assert_eq!(
         days("weights-clinic-us-dates.csv"),

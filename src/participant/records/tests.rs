@@ -1065,3 +1065,47 @@ fn forms_recognised_in_the_cells_are_stated_once_per_file() {
     assert!(n.contains("durations with their units"), "{n}");
     assert!(!n.contains("month's name"), "{n}");
 }
+
+/// A smart scale app's export: a date row (` May 1, 2026`) above that day's measurements,
+/// which give only the time of day, and weights with their unit; a delimiter ends each line.
+/// The file was refused for missing `date` and `unit` columns.
+#[test]
+fn dates_in_rows_of_their_own_above_the_measurements_are_read() {
+    let (w, diags) = weights(
+        "Time,Weight,BMI,\n\" May 2, 2026\",\n\"7:05 AM\",72.3 kg,23.4,\n\" May 1, 2026\",\n\"7:12 AM\",72.5 kg,23.5,\n\"9:40 PM\",72.5 kg,23.5,\n",
+    );
+    let got: Vec<(NaiveDate, Option<&str>, f64)> = w
+        .iter()
+        .map(|x| (x.date, x.time.as_deref(), x.weight.kg()))
+        .collect();
+    // The same weight at another time of another day is no duplicate.
+    assert_eq!(
+        got,
+        [
+            (d(2026, 5, 1), Some("07:12"), 72.5),
+            (d(2026, 5, 1), Some("21:40"), 72.5),
+            (d(2026, 5, 2), Some("07:05"), 72.3)
+        ]
+    );
+    // Only the `BMI` column is named (the header's final delimiter names none).
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("extra column `BMI`"),
+        "{}",
+        diags[0]
+    );
+    // A measurement before any date row has no date: dropped, named at the time column.
+    let (w, diags) = weights("Time,Weight\n7:00 AM,72 kg\n2026-05-01,\n7:12 AM,72.5 kg\n");
+    assert_eq!(w.len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(1)));
+    assert!(diags[0].message.contains("`date` is empty"), "{}", diags[0]);
+    // Without any date row the date column is missing, as before.
+    let (w, diags) = weights_or_error("Time,Weight\n7:00 AM,72 kg\n");
+    assert!(w.is_none());
+    assert!(
+        diags[0].message.contains("missing required column `date`"),
+        "{}",
+        diags[0]
+    );
+}
