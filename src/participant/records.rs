@@ -9,7 +9,9 @@
 use super::quantity::{
     MassUnit, WrittenDuration, WrittenMass, number_prefix_len, split_duration, split_mass,
 };
-use super::table::{Cells, CsvOptions, Dropped, FileCtx, Table, header_key, read_table};
+use super::table::{
+    Cells, CsvOptions, Dropped, FileCtx, SUMMARY_LABELS, Table, header_key, is_label, read_table,
+};
 use crate::activities;
 use crate::diag::Diagnostic;
 pub use crate::program::files::{ACTIVITY, ALL_FILES, INTAKE, LABS, MET_RANGE, SESSIONS, WEIGHTS};
@@ -1045,6 +1047,12 @@ pub fn parse_activity(
     let mut conflict: Option<Diagnostic> = None;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let activity = c.required_text("activity", d)?;
+        // A log's `Total` row is no activity: with a `met` value it was added to the day's
+        // activities as one more.
+        if is_label(&activity, &SUMMARY_LABELS) {
+            c.summary_row(&activity);
+            return None;
+        }
         let header_hours = matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours"));
         let raw = c.required_text("minutes", d)?;
         let minutes = match split_duration(&raw) {

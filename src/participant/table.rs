@@ -570,7 +570,7 @@ pub const SERIAL_DATE_MARGIN_DAYS: i64 = 365;
 /// Whether `s` is written as a spreadsheet serial date: digits, and a fraction of a day.
 fn is_serial(s: &str) -> bool {
     let (int, frac) = s.split_once('.').unwrap_or((s, "0"));
-    // Five digits: 10000 to 99999 are the years 1927 to 2173 in either system.
+    // Five digits: 10000 to 99999 are the years 1927 to 2177 across the two systems.
     int.len() == 5
         && !frac.is_empty()
         && int.bytes().all(|b| b.is_ascii_digit())
@@ -1839,7 +1839,7 @@ impl Cells<'_> {
     }
 
     /// Counts this row as one that sums up the others (`label`), for the file's note.
-    fn summary_row(&self, label: &str) {
+    pub fn summary_row(&self, label: &str) {
         let mut rows = self.table.summary_rows.borrow_mut();
         rows.0 += 1;
         rows.1.get_or_insert((self.row.line, label.to_string()));

@@ -1109,3 +1109,28 @@ fn dates_in_rows_of_their_own_above_the_measurements_are_read() {
         diags[0]
     );
 }
+
+/// An activity log's `Total` row with a `met` value was read as one more activity (the day's
+/// minutes counted twice).
+#[test]
+fn an_activity_logs_total_row_is_not_an_activity() {
+    let c = ctx("activity.csv");
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        "date,activity,minutes,met\n2026-04-01,brisk walk,30,4.3\n2026-04-01,Yoga,20,2.5\n2026-04-01,TOTAL,50,3.5\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(a.iter().map(|x| x.minutes).sum::<f64>(), 50.0);
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("1 row summing up the others (`TOTAL` on line 4)")),
+        "{notes:?}"
+    );
+}
