@@ -1461,9 +1461,16 @@ fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<Naive
     ];
     const TIMES: [&str; 4] = ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"];
     // The month's name is a word of three letters or more (`AM`, `PM` are not).
-    let named = s
-        .split([' ', ',', '-'])
-        .any(|w| w.len() >= 3 && w.chars().all(|c| c.is_ascii_alphabetic()));
+    // (Only a word that starts like a month is tried: a file of summary rows or other words
+    // is not run through every form.)
+    const MONTHS: [&str; 12] = [
+        "jan", "feb", "mar", "apr", "may", "jun", "jul", "aug", "sep", "oct", "nov", "dec",
+    ];
+    let named = s.split([' ', ',', '-']).any(|w| {
+        w.len() >= 3
+            && w.chars().all(|c| c.is_ascii_alphabetic())
+            && MONTHS.iter().any(|m| w[..3].eq_ignore_ascii_case(m))
+    });
     let b = s.as_bytes();
     let dates: &[&str] = if named {
         &NAMED
