@@ -426,6 +426,12 @@ pub fn parse_weights(
     let mut conflict: Option<Diagnostic> = None;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         const DROP: &str = "the row is dropped";
+        // A spreadsheet's `Average` (or `Max`…) row with a date, marked in a column of its own:
+        // no weigh-in.
+        if let Some(label) = c.table.row_label(c.row, &SUMMARY_LABELS) {
+            c.summary_row(label);
+            return None;
+        }
         let raw = c.required_text("weight", d)?;
         // The weight, with the unit written in its cell (`72.5 kg`, `14 st 2 lb`) if any.
         let (value, in_cell) = match split_mass(&raw) {
@@ -720,6 +726,14 @@ pub fn parse_intake(
     // Whether any cell wrote its energy unit (then an `Energy` header needs none).
     let mut units_in_cells = false;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+        // A day's `Average` (or `Max`…) row beside its meals is no meal (its `Total` row is
+        // checked against them below).
+        if let Some(label) = c.table.row_label(c.row, &SUMMARY_LABELS)
+            && !is_label(label, &TOTAL_LABELS)
+        {
+            c.summary_row(label);
+            return None;
+        }
         let raw = c.required_text("kcal", d)?;
         // A unit may be written in the cell (`1,850 kcal`, `7950 kJ`), as diaries print them.
         let (num, in_cell) = match split_value_unit(&raw) {
@@ -1051,6 +1065,10 @@ pub fn parse_activity(
         // activities as one more.
         if is_label(&activity, &SUMMARY_LABELS) {
             c.summary_row(&activity);
+            return None;
+        }
+        if let Some(label) = c.table.row_label(c.row, &SUMMARY_LABELS) {
+            c.summary_row(label);
             return None;
         }
         let header_hours = matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours"));

@@ -220,10 +220,16 @@ impl Table {
     /// Whether a field of `row` outside our columns (a `Meal` column, say) holds one of
     /// `labels` (lowercase), whatever its case, spacing or final colon (`TOTAL:`).
     pub fn row_labelled(&self, row: &Row, labels: &[&str]) -> bool {
+        self.row_label(row, labels).is_some()
+    }
+
+    /// The first field of `row` outside our columns that holds one of `labels` (see
+    /// [`Table::row_labelled`]).
+    pub fn row_label<'t>(&'t self, row: &Row, labels: &[&str]) -> Option<&'t str> {
         (0..self.width)
             .filter(|i| !self.columns.values().any(|c| c == i))
             .filter_map(|i| self.field(row, i))
-            .any(|f| is_label(f, labels))
+            .find(|f| is_label(f, labels))
     }
 
     /// Whether rows `a` and `b` hold the same text in every field.

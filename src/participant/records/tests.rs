@@ -1134,3 +1134,33 @@ fn an_activity_logs_total_row_is_not_an_activity() {
         "{notes:?}"
     );
 }
+
+/// A summary row with a date, marked in a column we do not read (`Average` in `Notes`, `Max`
+/// in `Meal`), was read as one more weigh-in, meal or activity.
+#[test]
+fn summary_rows_marked_in_another_column_are_not_measurements() {
+    let (w, diags) = weights(
+        "date,weight,unit,notes\n2026-04-01,72.5,kg,\n2026-04-02,72.1,kg,after run\n2026-04-30,72.3,kg,Average\n",
+    );
+    assert_eq!(
+        w.iter().map(|x| x.weight.kg()).collect::<Vec<_>>(),
+        [72.5, 72.1]
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("extra column `notes`"),
+        "{}",
+        diags[0]
+    );
+    let (v, _) = intake(
+        "Date,Meal,Calories\n2026-04-01,Breakfast,400\n2026-04-01,Lunch,800\n2026-04-01,Average,600\n",
+    );
+    assert_eq!(v.iter().map(|i| i.kcal).collect::<Vec<_>>(), [1200.0]);
+    let (a, _) = activity_or_error(
+        "date,activity,minutes,notes\n2026-04-01,brisk walk,30,\n2026-04-01,brisk walk,30,Max\n",
+    );
+    assert_eq!(
+        a.unwrap().iter().map(|x| x.minutes).collect::<Vec<_>>(),
+        [30.0]
+    );
+}
