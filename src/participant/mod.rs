@@ -412,6 +412,7 @@ pub fn csv_options(program: &Program) -> CsvOptions {
         time_zone: input.time_zone.as_deref().and_then(table::LocalZone::parse),
         columns: std::sync::Arc::new(columns),
         activities: std::sync::Arc::new(activities),
+        program_span: Some((program.def.program.start, program.def.program.end)),
     }
 }
 

@@ -86,7 +86,9 @@ pub fn number_prefix_len(s: &str) -> usize {
     }
     for w in ["infinity", "inf", "nan"] {
         if s.len() >= i + w.len()
-            && s[i..i + w.len()].eq_ignore_ascii_case(w)
+            // Compared as bytes: `s` may have a character of several bytes there (an ASCII
+            // match ends on a character boundary, so the slice after it is sound).
+            && b[i..i + w.len()].eq_ignore_ascii_case(w.as_bytes())
             && !s[i + w.len()..].starts_with(|c: char| c.is_alphanumeric())
         {
             return i + w.len();
@@ -237,6 +239,172 @@ pub fn parse_grouped(s: &str, integer_valued: bool) -> Option<f64> {
     }
     let v: f64 = text.parse().ok()?;
     Some(if negative { -v } else { v })
+}
+
+/// A unit of body weight as people write it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum MassUnit {
+    /// Kilograms.
+    Kg,
+    /// Pounds (0.45359237 kg exactly, international yard and pound agreement, 1959).
+    Lb,
+    /// Stones of 14 lb.
+    St,
+}
+
+impl MassUnit {
+    /// Reads a unit name in any case, with or without a final point (`kg`, `Lbs.`, `stone`).
+    pub fn parse(u: &str) -> Option<MassUnit> {
+        let u = u.trim();
+        let u = u.strip_suffix('.').unwrap_or(u).to_lowercase();
+        Some(match u.as_str() {
+            "kg" | "kgs" | "kilo" | "kilos" | "kilogram" | "kilograms" => MassUnit::Kg,
+            "lb" | "lbs" | "pound" | "pounds" => MassUnit::Lb,
+            "st" | "stone" | "stones" => MassUnit::St,
+            _ => return None,
+        })
+    }
+
+    /// The unit's symbol (`kg`, `lb`, `st`).
+    pub fn symbol(self) -> &'static str {
+        match self {
+            MassUnit::Kg => "kg",
+            MassUnit::Lb => "lb",
+            MassUnit::St => "st",
+        }
+    }
+}
+
+/// A weight as written in one cell, its numbers still text (the file's decimal separator
+/// decides how they read).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum WrittenMass<'a> {
+    /// One number with the unit written after it, if any: `72.5`, `72.5 kg`, `160 lbs`.
+    One(&'a str, Option<MassUnit>),
+    /// Stones and pounds: `14 st 2 lb`, `14st 2lb`, `14 st 2` (the pounds' unit left off).
+    StonesPounds(&'a str, &'a str),
+    /// A number followed by a word that is no unit of weight (`72.5 kgm`).
+    UnknownUnit(&'a str),
+}
+
+/// Splits a weight cell into its number(s) and unit(s); `None` when it is not written as
+/// numbers with units (the cell is then read as a plain number, which names what is wrong).
+pub fn split_mass(s: &str) -> Option<WrittenMass<'_>> {
+    let s = s.trim();
+    let mut parts: Vec<(&str, &str)> = Vec::new();
+    let mut rest = s;
+    while !rest.is_empty() {
+        let n = number_prefix_len(rest);
+        if n == 0 {
+            return None;
+        }
+        let (num, after) = rest.split_at(n);
+        let after = after.trim_start();
+        // The unit: letters, and one point after them (`lbs.`).
+        let mut u = after
+            .char_indices()
+            .find(|(_, c)| !c.is_alphabetic())
+            .map_or(after.len(), |(i, _)| i);
+        if u > 0 && after[u..].starts_with('.') {
+            u += 1;
+        }
+        parts.push((num, &after[..u]));
+        rest = after[u..].trim_start();
+    }
+    Some(match parts.as_slice() {
+        [(n, "")] => WrittenMass::One(n, None),
+        [(n, u)] => match MassUnit::parse(u) {
+            Some(unit) => WrittenMass::One(n, Some(unit)),
+            None => WrittenMass::UnknownUnit(u),
+        },
+        [(st, su), (lb, lu)]
+            if MassUnit::parse(su) == Some(MassUnit::St)
+                && (lu.is_empty() || MassUnit::parse(lu) == Some(MassUnit::Lb)) =>
+        {
+            WrittenMass::StonesPounds(st, lb)
+        }
+        _ => return None,
+    })
+}
+
+/// A duration as written in one cell, in minutes.
+#[derive(Debug, Clone, PartialEq)]
+pub enum WrittenDuration<'a> {
+    /// A plain number: in the column's unit (minutes unless the header says hours).
+    Plain(&'a str),
+    /// A clock duration `h:mm:ss` (`00:45:00`, `1:10:00`), self-describing.
+    Clock(f64),
+    /// Numbers with units (`45 min`, `1 h 15 min`, `1h`, `90 s`): the minutes, and the unit
+    /// when only one was written (`min`, `h` or `s`).
+    Units(f64, Option<&'static str>),
+    /// Two parts with a colon (`45:00`, `1:30`): minutes and seconds, or hours and minutes.
+    Ambiguous,
+    /// Not a duration form (the cell is then read as a plain number, which names the problem).
+    Other,
+}
+
+/// Reads a duration cell (see [`WrittenDuration`]). Numbers inside are plain decimals (a
+/// decimal comma is left to the plain-number reader, which knows the file's delimiter).
+pub fn split_duration(s: &str) -> WrittenDuration<'_> {
+    let s = s.trim();
+    if s.contains(':') {
+        let parts: Vec<&str> = s.split(':').collect();
+        let digits = |p: &str| !p.is_empty() && p.bytes().all(|b| b.is_ascii_digit());
+        return match parts.as_slice() {
+            [h, m, sec]
+                if digits(h)
+                    && h.len() <= 3
+                    && m.len() == 2
+                    && digits(m)
+                    && digits(sec.split('.').next().unwrap_or(""))
+                    && sec.split('.').next().is_some_and(|x| x.len() == 2) =>
+            {
+                let (Ok(h), Ok(m), Ok(sec)) =
+                    (h.parse::<f64>(), m.parse::<f64>(), sec.parse::<f64>())
+                else {
+                    return WrittenDuration::Other;
+                };
+                if m >= 60.0 || sec >= 60.0 {
+                    return WrittenDuration::Other;
+                }
+                WrittenDuration::Clock(h * 60.0 + m + sec / 60.0)
+            }
+            [a, b] if digits(a) && digits(b) && b.len() == 2 => WrittenDuration::Ambiguous,
+            _ => WrittenDuration::Other,
+        };
+    }
+    if parse_decimal(s).is_ok() || !s.chars().any(char::is_alphabetic) {
+        return WrittenDuration::Plain(s);
+    }
+    // Numbers with units, largest first, each unit once: `1 h 15 min`, `1h15m`, `45 mins`.
+    let mut rest = s;
+    let mut minutes = 0.0;
+    let mut units: Vec<&'static str> = Vec::new();
+    while !rest.is_empty() {
+        let n = number_prefix_len(rest);
+        let Ok(v) = parse_decimal(&rest[..n]) else {
+            return WrittenDuration::Other;
+        };
+        let after = rest[n..].trim_start();
+        let u = after
+            .char_indices()
+            .find(|(_, c)| !c.is_alphabetic())
+            .map_or(after.len(), |(i, _)| i);
+        let (unit, per_minute) = match after[..u].to_lowercase().as_str() {
+            "h" | "hr" | "hrs" | "hour" | "hours" => ("h", 60.0),
+            "m" | "min" | "mins" | "minute" | "minutes" => ("min", 1.0),
+            "s" | "sec" | "secs" | "second" | "seconds" => ("s", 1.0 / 60.0),
+            _ => return WrittenDuration::Other,
+        };
+        let rank = |u: &str| ["h", "min", "s"].iter().position(|x| *x == u);
+        if units.last().is_some_and(|&last| rank(last) >= rank(unit)) {
+            return WrittenDuration::Other;
+        }
+        units.push(unit);
+        minutes += v * per_minute;
+        rest = after[u..].trim_start();
+    }
+    WrittenDuration::Units(minutes, (units.len() == 1).then(|| units[0]))
 }
 
 /// Why a length could not be read.
@@ -417,6 +585,68 @@ mod tests {
     }
 
     #[test]
+    fn weights_with_their_units_in_the_cell() {
+        use WrittenMass::*;
+        assert_eq!(split_mass("72.5 kg"), Some(One("72.5", Some(MassUnit::Kg))));
+        assert_eq!(split_mass("72.4kg"), Some(One("72.4", Some(MassUnit::Kg))));
+        assert_eq!(
+            split_mass(" 72.2 KG "),
+            Some(One("72.2", Some(MassUnit::Kg)))
+        );
+        assert_eq!(
+            split_mass("160.4 lb"),
+            Some(One("160.4", Some(MassUnit::Lb)))
+        );
+        assert_eq!(split_mass("160 lbs"), Some(One("160", Some(MassUnit::Lb))));
+        assert_eq!(
+            split_mass("159.8 Lbs."),
+            Some(One("159.8", Some(MassUnit::Lb)))
+        );
+        assert_eq!(split_mass("11.5 st"), Some(One("11.5", Some(MassUnit::St))));
+        assert_eq!(split_mass("72,5 kg"), Some(One("72,5", Some(MassUnit::Kg))));
+        assert_eq!(split_mass("72.5"), Some(One("72.5", None)));
+        assert_eq!(split_mass("14 st 2 lb"), Some(StonesPounds("14", "2")));
+        assert_eq!(split_mass("14st 2lb"), Some(StonesPounds("14", "2")));
+        assert_eq!(split_mass("14 st 2"), Some(StonesPounds("14", "2")));
+        assert_eq!(
+            split_mass("14 stone 2.5 pounds"),
+            Some(StonesPounds("14", "2.5"))
+        );
+        assert_eq!(split_mass("72.5 kgm"), Some(UnknownUnit("kgm")));
+        // Not numbers with units: left to the number reader, which names what it found.
+        for s in ["kg", "72 kg 3 lb", "14 lb 2 st", "n/a", "72 kg!", ""] {
+            assert_eq!(split_mass(s), None, "{s}");
+        }
+    }
+
+    #[test]
+    fn durations_as_activity_apps_write_them() {
+        use WrittenDuration::*;
+        assert_eq!(split_duration("00:45:00"), Clock(45.0));
+        assert_eq!(split_duration("1:10:00"), Clock(70.0));
+        assert_eq!(split_duration("0:30:30"), Clock(30.5));
+        assert_eq!(split_duration("45 min"), Units(45.0, Some("min")));
+        assert_eq!(split_duration("30 mins"), Units(30.0, Some("min")));
+        assert_eq!(split_duration("1 h 15 min"), Units(75.0, None));
+        assert_eq!(split_duration("1h15m"), Units(75.0, None));
+        assert_eq!(split_duration("1.5 hours"), Units(90.0, Some("h")));
+        assert_eq!(split_duration("1h"), Units(60.0, Some("h")));
+        assert_eq!(split_duration("45"), Plain("45"));
+        assert_eq!(split_duration("45:00"), Ambiguous);
+        assert_eq!(split_duration("1:30"), Ambiguous);
+        for s in [
+            "00:75:00",
+            "15 min 1 h",
+            "45 furlongs",
+            "1 h 1 h",
+            "abc",
+            "1::2",
+        ] {
+            assert_eq!(split_duration(s), Other, "{s}");
+        }
+    }
+
+    #[test]
     fn heights_in_every_written_form() {
         // 1 in = 2.54 cm exactly (international yard and pound agreement, 1959).
         let five_six = 66.0 * 2.54;
@@ -487,6 +717,10 @@ mod tests {
         assert_eq!(number_prefix_len("5e"), 1);
         assert_eq!(number_prefix_len("inches"), 0);
         assert_eq!(number_prefix_len("info"), 0);
+        // A character of several bytes where a word is looked for (it panicked).
+        assert_eq!(number_prefix_len("ñññ"), 0);
+        assert_eq!(number_prefix_len("-ñaaaaaa"), 0);
+        assert_eq!(split_mass("72 ñññ"), Some(WrittenMass::UnknownUnit("ñññ")));
     }
 
     #[test]

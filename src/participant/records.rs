@@ -6,8 +6,12 @@
 //! file whose shape cannot be trusted (missing column) is an error. Every list comes out sorted
 //! by date.
 
-use super::quantity::number_prefix_len;
-use super::table::{Cells, CsvOptions, Dropped, FileCtx, Table, header_key, read_table};
+use super::quantity::{
+    MassUnit, WrittenDuration, WrittenMass, number_prefix_len, split_duration, split_mass,
+};
+use super::table::{
+    Cells, CsvOptions, Dropped, FileCtx, SUMMARY_LABELS, Table, header_key, is_label, read_table,
+};
 use crate::activities;
 use crate::diag::Diagnostic;
 pub use crate::program::files::{ACTIVITY, ALL_FILES, INTAKE, LABS, MET_RANGE, SESSIONS, WEIGHTS};
@@ -344,6 +348,40 @@ enum WeightUnit {
     Lb,
     /// The imperial stone of 14 lb (decimal stones, as British scales export them).
     St,
+    /// Stones and pounds (`14 st 2 lb`), the value held in pounds.
+    StLb,
+}
+
+impl From<MassUnit> for WeightUnit {
+    fn from(u: MassUnit) -> Self {
+        match u {
+            MassUnit::Kg => WeightUnit::Kg,
+            MassUnit::Lb => WeightUnit::Lb,
+            MassUnit::St => WeightUnit::St,
+        }
+    }
+}
+
+impl WeightUnit {
+    /// The unit as a file declares it: stones and pounds are stones.
+    fn mass_unit(self) -> MassUnit {
+        match self {
+            WeightUnit::Kg => MassUnit::Kg,
+            WeightUnit::Lb => MassUnit::Lb,
+            WeightUnit::St | WeightUnit::StLb => MassUnit::St,
+        }
+    }
+
+    /// `value` in this unit as written: `72.5 kg`, `14 st 2 lb`.
+    fn show(self, value: f64) -> String {
+        match self {
+            WeightUnit::StLb => {
+                let st = (value / LB_PER_STONE).floor();
+                format!("{st} st {} lb", value - st * LB_PER_STONE)
+            }
+            u => format!("{value} {}", u.mass_unit().symbol()),
+        }
+    }
 }
 
 #[derive(Debug, Clone)]
@@ -369,6 +407,7 @@ impl RawWeight {
             WeightUnit::Kg => self.value,
             WeightUnit::Lb => Mass::from_lb(self.value).kg(),
             WeightUnit::St => Mass::from_lb(LB_PER_STONE * self.value).kg(),
+            WeightUnit::StLb => Mass::from_lb(self.value).kg(),
         }
     }
 }
@@ -406,35 +445,133 @@ pub fn parse_weights(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<WeighIn>> {
     let table = read_table(text, &WEIGHTS, opts, ctx, diags)?;
+    // The first weight whose unit in the cell disagrees with the unit column or header: the
+    // file cannot say which is right, so it is not used.
+    let mut conflict: Option<Diagnostic> = None;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
-        let value = c.number("weight", d)?;
-        // The unit column, else a unit written in the weight column's header.
-        let unit_text = match c.text("unit").or(c.table.header_unit("weight")) {
-            Some(u) => u.to_string(),
-            None => c.required_text("unit", d)?,
-        };
-        let unit = match unit_text.to_lowercase().as_str() {
-            "kg" | "kgs" | "kilogram" | "kilograms" => WeightUnit::Kg,
-            "lb" | "lbs" | "pound" | "pounds" => WeightUnit::Lb,
-            "st" | "stone" | "stones" => WeightUnit::St,
-            _ => {
+        const DROP: &str = "the row is dropped";
+        // A spreadsheet's `Average` (or `Max`…) row with a date, marked in a column of its own:
+        // no weigh-in.
+        if let Some(label) = c.table.row_label(c.row, &SUMMARY_LABELS) {
+            c.summary_row(label);
+            return None;
+        }
+        let raw = c.required_text("weight", d)?;
+        // The weight, with the unit written in its cell (`72.5 kg`, `14 st 2 lb`) if any.
+        let (value, in_cell) = match split_mass(&raw) {
+            Some(WrittenMass::One(n, u)) => (
+                c.parse_number("weight", n, DROP, d)?,
+                u.map(WeightUnit::from),
+            ),
+            Some(WrittenMass::StonesPounds(st, lb)) => {
+                let (st, lb) = (
+                    c.parse_number("weight", st, DROP, d)?,
+                    c.parse_number("weight", lb, DROP, d)?,
+                );
+                if st < 0.0 || st.fract() != 0.0 || !(0.0..LB_PER_STONE).contains(&lb) {
+                    d.push(
+                        c.warn("weight", "unreadable stones and pounds; the row is dropped")
+                            .expected("whole stones and under 14 pounds, e.g. `14 st 2 lb`")
+                            .found(format!("`{raw}`"))
+                            .hint("write stones and pounds (`14 st 2 lb`) or decimal stones (`14.1 st`)"),
+                    );
+                    return None;
+                }
+                // Pounds in all: 14 st 2 lb is exactly 198 lb.
+                (st * LB_PER_STONE + lb, Some(WeightUnit::StLb))
+            }
+            Some(WrittenMass::UnknownUnit(u)) => {
                 d.push(
-                    c.warn("unit", "unknown weight unit; the row is dropped")
-                        .expected("`kg`, `lb` or `st` (decimal stones)")
-                        .found(format!("`{unit_text}`")),
+                    c.warn(
+                        "weight",
+                        "unknown weight unit in the cell; the row is dropped",
+                    )
+                    .expected("a weight with `kg`, `lb` or `st`, or a plain number")
+                    .found(format!("`{raw}` (unit `{u}`)")),
+                );
+                return None;
+            }
+            None => (c.number("weight", d)?, None),
+        };
+        // The unit column, else a unit written in the weight column's header.
+        let declared_text = c.text("unit").or(c.table.header_unit("weight"));
+        let declared = match declared_text {
+            None => None,
+            Some(t) => match MassUnit::parse(t) {
+                Some(u) => Some(u),
+                None => {
+                    d.push(
+                        c.warn("unit", "unknown weight unit; the row is dropped")
+                            .expected("`kg`, `lb` or `st` (decimal stones)")
+                            .found(format!("`{t}`")),
+                    );
+                    return None;
+                }
+            },
+        };
+        let unit = match (in_cell, declared) {
+            (Some(cell), Some(said)) if cell.mass_unit() != said => {
+                let by = if c.text("unit").is_some() {
+                    format!("the `unit` column says `{}`", declared_text.unwrap_or(""))
+                } else {
+                    format!(
+                        "the header `{}` says {}",
+                        c.table.written_header("weight").unwrap_or("weight"),
+                        said.symbol()
+                    )
+                };
+                conflict.get_or_insert_with(|| {
+                    c.ctx
+                        .error(format!(
+                            "the weight `{raw}` is written in {} but {by}; the file is not used, as it cannot say which unit its weights are in",
+                            cell.mass_unit().symbol()
+                        ))
+                        .at(c.row.line, c.table.column("weight"))
+                        .field("weight")
+                        .expected(format!(
+                            "weights in {} (the unit the file declares), with or without the unit in the cell",
+                            said.symbol()
+                        ))
+                        .found(format!("`{raw}`"))
+                        .hint("correct the cell or the unit; a unit written in the weight cells needs no `unit` column")
+                });
+                return None;
+            }
+            (Some(cell), _) => {
+                c.table.recognised(if cell == WeightUnit::StLb {
+                    "stones and pounds (`14 st 2 lb` = 198 lb)"
+                } else {
+                    "weights with their unit in the cell (`72.5 kg`)"
+                });
+                cell
+            }
+            (None, Some(said)) => WeightUnit::from(said),
+            (None, None) => {
+                if c.table.column("unit").is_some() {
+                    // Pushes the "is empty" warning.
+                    return c.required_text("unit", d).and(None);
+                }
+                d.push(
+                    c.warn("weight", "the weight has no unit and the file has no `unit` column; the row is dropped")
+                        .expected("a weight with its unit, e.g. `72.5 kg` or `160 lb`")
+                        .found(format!("`{raw}`"))
+                        .hint("write the unit with every weight, or add a `unit` column"),
                 );
                 return None;
             }
         };
         let time = c.text("time").and_then(|t| {
-            match NaiveTime::parse_from_str(t, "%H:%M")
-                .or_else(|_| NaiveTime::parse_from_str(t, "%H:%M:%S"))
+            // 24-hour or 12-hour (`7:12 AM`, as US-locale apps write it).
+            match ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"]
+                .iter()
+                .find_map(|f| NaiveTime::parse_from_str(t, f).ok())
+                .ok_or(())
             {
                 Ok(tm) => Some(tm.format("%H:%M").to_string()),
                 Err(_) => {
                     d.push(
                         c.warn("time", "unreadable time; the time is ignored")
-                            .expected("a time of day HH:MM, e.g. `07:30`")
+                            .expected("a time of day HH:MM, e.g. `07:30` (or `7:30 AM`)")
                             .found(format!("`{t}`")),
                     );
                     None
@@ -448,6 +585,10 @@ pub fn parse_weights(
             source: c.text("source").map(str::to_string),
         })
     });
+    if let Some(e) = conflict {
+        diags.push(e);
+        return None;
+    }
     let rows: Vec<Parsed<RawWeight>> = rows
         .into_iter()
         .map(|mut r| {
@@ -501,11 +642,7 @@ pub fn parse_weights(
             .field("weight")
             .found(format!(
                 "`{v}` with unit `{}`",
-                match r.value.unit {
-                    WeightUnit::Kg => "kg",
-                    WeightUnit::Lb => "lb",
-                    WeightUnit::St => "st",
-                }
+                r.value.unit.mass_unit().symbol()
             ))
             .hint("check the `unit` column of this row and correct it");
         Some((corrected, diag))
@@ -601,9 +738,8 @@ pub fn parse_weights(
     for (r, kg) in rows.into_iter().zip(kg) {
         if !plausible_kg(kg) {
             let shown = match r.value.unit {
-                WeightUnit::Kg => format!("`{}` kg", r.value.value),
-                WeightUnit::Lb => format!("`{}` lb", r.value.value),
-                WeightUnit::St => format!("`{}` st", r.value.value),
+                WeightUnit::StLb => format!("`{}`", r.value.unit.show(r.value.value)),
+                u => format!("`{}` {}", r.value.value, u.mass_unit().symbol()),
             };
             diags.push(
                 ctx.warning("implausible weight; the row is dropped")
@@ -702,11 +838,32 @@ fn mixed_people(
 struct RawIntake {
     kcal: f64,
     macros: [Option<f64>; 4],
+    /// Marked as the day's total (`Total` in a `Meal` column).
+    total: bool,
+}
+
+/// Labels of a food diary's row that totals the day's other rows (in a column of its own, such
+/// as `Meal`).
+const TOTAL_LABELS: [&str; 7] = [
+    "total",
+    "totals",
+    "daily total",
+    "day total",
+    "sum",
+    "summe",
+    "gesamt",
+];
+
+/// How far a day's `Total` row may be from the sum of its other rows and still be their total:
+/// diaries print each row rounded (common practice).
+fn total_matches(total: f64, sum: f64) -> bool {
+    (total - sum).abs() <= (0.005 * sum).max(2.0)
 }
 
 impl SameValue for RawIntake {
     fn same_value(&self, o: &Self) -> bool {
-        same_f64(self.kcal, o.kcal)
+        self.total == o.total
+            && same_f64(self.kcal, o.kcal)
             && self
                 .macros
                 .iter()
@@ -726,9 +883,68 @@ pub fn parse_intake(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<IntakeDay>> {
     let table = read_table(text, &INTAKE, opts, ctx, diags)?;
+    // The first energy whose unit in the cell disagrees with the header's.
+    let mut conflict: Option<Diagnostic> = None;
+    // Whether any cell wrote its energy unit (then an `Energy` header needs none).
+    let mut units_in_cells = false;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
-        let mut kcal = c.number("kcal", d)?;
-        if c.table.header_unit("kcal") == Some("kj") {
+        // A day's `Average` (or `Max`…) row beside its meals is no meal (its `Total` row is
+        // checked against them below).
+        if let Some(label) = c.table.row_label(c.row, &SUMMARY_LABELS)
+            && !is_label(label, &TOTAL_LABELS)
+        {
+            c.summary_row(label);
+            return None;
+        }
+        let raw = c.required_text("kcal", d)?;
+        // A unit may be written in the cell (`1,850 kcal`, `7950 kJ`), as diaries print them.
+        let (num, in_cell) = match split_value_unit(&raw) {
+            // No number first (`n/a`): read as a number, which names what was found.
+            ("", _) => (raw.as_str(), None),
+            (num, None) => (num, None),
+            (num, Some(u)) => match energy_unit(u) {
+                Some(kj) => (num, Some(kj)),
+                None => {
+                    d.push(
+                        c.warn(
+                            "kcal",
+                            "unknown energy unit in the cell; the row is dropped",
+                        )
+                        .expected("kcal (`1850`, `1850 kcal`, `1850 Cal`) or kJ (`7950 kJ`)")
+                        .found(format!("`{raw}`")),
+                    );
+                    return None;
+                }
+            },
+        };
+        let mut kcal = c.parse_number("kcal", num, "the row is dropped", d)?;
+        let header_kj = c.table.header_unit("kcal").map(|u| u == "kj");
+        if let (Some(cell_kj), Some(said_kj)) = (in_cell, header_kj)
+            && cell_kj != said_kj
+        {
+            let name = |kj: bool| if kj { "kJ" } else { "kcal" };
+            conflict.get_or_insert_with(|| {
+                c.ctx
+                    .error(format!(
+                        "the energy `{raw}` is written in {} but the header `{}` says {}; the file is not used, as it cannot say which unit its energy is in",
+                        name(cell_kj),
+                        c.table.written_header("kcal").unwrap_or("kcal"),
+                        name(said_kj)
+                    ))
+                    .at(c.row.line, c.table.column("kcal"))
+                    .field("kcal")
+                    .expected(format!("energy in {}, as the header says", name(said_kj)))
+                    .found(format!("`{raw}`"))
+                    .hint("correct the cell or the header")
+            });
+            return None;
+        }
+        if in_cell.is_some() {
+            units_in_cells = true;
+            c.table
+                .recognised("energy with its unit in the cell (`1,850 kcal`, `7950 kJ`)");
+        }
+        if in_cell.or(header_kj) == Some(true) {
             kcal /= KJ_PER_KCAL;
         }
         if kcal < 0.0 {
@@ -741,7 +957,22 @@ pub fn parse_intake(
         }
         let mut macros = [None; 4];
         for (slot, col) in macros.iter_mut().zip(MACROS) {
-            match c.optional_number(col, "the value is ignored", d) {
+            // Grams may be written in the cell (`45 g`).
+            let grams = c.text(col).map(|t| match split_value_unit(t) {
+                (num, Some(u)) if u.eq_ignore_ascii_case("g") => {
+                    c.table.recognised("grams written in the cells (`45 g`)");
+                    num
+                }
+                _ => t,
+            });
+            let read = match grams {
+                None => Ok(None),
+                Some(t) => c
+                    .parse_number(col, t, "the value is ignored", d)
+                    .map(Some)
+                    .ok_or(Dropped),
+            };
+            match read {
                 Ok(Some(v)) if v < 0.0 => d.push(
                     c.warn(col, format!("negative `{col}`; the value is ignored"))
                         .expected("grams ≥ 0")
@@ -751,11 +982,21 @@ pub fn parse_intake(
                 Err(Dropped) => {}
             }
         }
-        Some(RawIntake { kcal, macros })
+        let total = c.table.row_labelled(c.row, &TOTAL_LABELS);
+        Some(RawIntake {
+            kcal,
+            macros,
+            total,
+        })
     });
+    if let Some(e) = conflict {
+        diags.push(e);
+        return None;
+    }
     note_identical_same_day(&rows, "intake", ctx);
     let rows = in_window(rows, w, &table, ctx, diags);
     table.describe(opts, ctx);
+    let rows = drop_total_rows(rows, &table, ctx, diags);
 
     struct Day {
         kcal: f64,
@@ -794,8 +1035,10 @@ pub fn parse_intake(
     // kilojoule countries). Daily totals whose median is above what anyone logs in kcal are
     // kJ; read as kcal they were taken as four times the intake, without a word.
     if let Some(written) = table.written_as("kcal")
-        && header_key(written).0 == "energy"
+        // `Dietary Energy`: phone health apps write kJ or kcal by the phone's region.
+        && matches!(header_key(written).0.as_str(), "energy" | "dietary_energy")
         && table.header_unit("kcal").is_none()
+        && !units_in_cells
         && days.len() >= 3
     {
         let mut totals: Vec<f64> = days.values().map(|d| d.kcal).collect();
@@ -880,6 +1123,87 @@ pub fn parse_intake(
     Some(out)
 }
 
+/// An energy unit written in a cell: `Some(true)` for kilojoules, `Some(false)` for kilocalories
+/// (`Cal`, `cal` and `calories` on food labels and in diaries are kilocalories).
+fn energy_unit(u: &str) -> Option<bool> {
+    match u.trim().trim_end_matches('.').to_lowercase().as_str() {
+        "kj" | "kilojoule" | "kilojoules" => Some(true),
+        "kcal" | "kcals" | "cal" | "cals" | "calorie" | "calories" | "kilocalorie"
+        | "kilocalories" => Some(false),
+        _ => None,
+    }
+}
+
+/// A food diary's `Total` rows among the day's meals: summed with them, every such day was
+/// taken at twice its intake without a word. A total that matches the sum of the day's other
+/// rows is left out (noted); one that does not leaves the day unknown (its rows are dropped
+/// with a warning: the meals or the total are wrong, and which cannot be told). A `Total` row
+/// alone on its day is the day's intake.
+fn drop_total_rows(
+    rows: Vec<Parsed<RawIntake>>,
+    table: &Table,
+    ctx: &FileCtx,
+    diags: &mut Vec<Diagnostic>,
+) -> Vec<Parsed<RawIntake>> {
+    if !rows.iter().any(|r| r.value.total) {
+        return rows;
+    }
+    /// A day's other rows (their sum and number) and its totals (line, kcal).
+    type DayTotals = (f64, usize, Vec<(u64, f64)>);
+    let mut days: BTreeMap<NaiveDate, DayTotals> = BTreeMap::new();
+    for r in &rows {
+        let day = days.entry(r.date).or_default();
+        if r.value.total {
+            day.2.push((r.line, r.value.kcal));
+        } else {
+            day.0 += r.value.kcal;
+            day.1 += 1;
+        }
+    }
+    let kcol = table.column("kcal");
+    let (mut matched, mut first) = (0usize, None);
+    let mut unknown_days = std::collections::BTreeSet::new();
+    for (date, (sum, others, totals)) in &days {
+        if totals.is_empty() || (*others == 0 && totals.len() == 1) {
+            continue;
+        }
+        if *others > 0 && totals.iter().all(|(_, t)| total_matches(*t, *sum)) {
+            matched += totals.len();
+            first.get_or_insert(totals[0].0);
+            continue;
+        }
+        let (line, t) = totals[0];
+        unknown_days.insert(*date);
+        diags.push(
+            ctx.warning(format!(
+                "line {line} is the total of {date}, but its {} kcal are not the sum of the day's other rows ({} kcal); the day is dropped, as which is right cannot be told",
+                t, sum
+            ))
+            .at(line, kcol)
+            .field("kcal")
+            .expected(format!("a total equal to the day's other rows, {sum} kcal"))
+            .found(format!("{t} kcal"))
+            .hint("correct the day's rows or its total, or delete the total rows (the tool sums a day's rows itself)"),
+        );
+    }
+    if let Some(line) = first {
+        let rows = if matched == 1 {
+            "1 row"
+        } else {
+            &format!("{matched} rows")
+        };
+        ctx.note(format!(
+            "{rows} giving a day's total of the other rows (first on line {line}) left out: the day's rows are summed"
+        ));
+    }
+    rows.into_iter()
+        .filter(|r| {
+            let total_of_others = r.value.total && days[&r.date].1 > 0;
+            !(unknown_days.contains(&r.date) || total_of_others)
+        })
+        .collect()
+}
+
 /// A parsed activity row: (activity, minutes, MET, source of the MET, steps).
 type RawActivity = (String, f64, f64, String, Option<f64>);
 
@@ -921,12 +1245,66 @@ pub fn parse_activity(
     let has_met_column = table.column("met").is_some();
     // Unknown labels: (rows, first line), reported once per label.
     let mut unknown: BTreeMap<String, (usize, u64)> = BTreeMap::new();
+    // The first duration whose unit in the cell disagrees with the header's.
+    let mut conflict: Option<Diagnostic> = None;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let activity = c.required_text("activity", d)?;
-        let mut minutes = c.number("minutes", d)?;
-        if matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours")) {
-            minutes *= 60.0;
+        // A log's `Total` row is no activity: with a `met` value it was added to the day's
+        // activities as one more.
+        if is_label(&activity, &SUMMARY_LABELS) {
+            c.summary_row(&activity);
+            return None;
         }
+        if let Some(label) = c.table.row_label(c.row, &SUMMARY_LABELS) {
+            c.summary_row(label);
+            return None;
+        }
+        let header_hours = matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours"));
+        let raw = c.required_text("minutes", d)?;
+        let minutes = match split_duration(&raw) {
+            WrittenDuration::Plain(_) | WrittenDuration::Other => {
+                let v = c.number("minutes", d)?;
+                if header_hours { v * 60.0 } else { v }
+            }
+            WrittenDuration::Clock(m) => {
+                c.table
+                    .recognised("durations as h:mm:ss (`0:45:00` = 45 minutes)");
+                m
+            }
+            WrittenDuration::Units(m, unit) => {
+                // One unit in the cell that the header contradicts (`45 min` under
+                // `Duration (h)`): which is right cannot be known.
+                if let (Some(u), Some(h)) = (unit, c.table.header_unit("minutes"))
+                    && u != if header_hours { "h" } else { "min" }
+                {
+                    conflict.get_or_insert_with(|| {
+                        c.ctx
+                            .error(format!(
+                                "the duration `{raw}` is written in {u} but the header `{}` says {h}; the file is not used, as it cannot say which unit its durations are in",
+                                c.table.written_header("minutes").unwrap_or("minutes")
+                            ))
+                            .at(c.row.line, c.table.column("minutes"))
+                            .field("minutes")
+                            .expected(format!("durations in {h}, as the header says, or with the unit in every cell and none in the header"))
+                            .found(format!("`{raw}`"))
+                            .hint("correct the cell or the header")
+                    });
+                    return None;
+                }
+                c.table
+                    .recognised("durations with their units (`45 min`, `1 h 15 min`)");
+                m
+            }
+            WrittenDuration::Ambiguous => {
+                d.push(
+                    c.warn("minutes", "a duration with one colon could be minutes:seconds or hours:minutes; the row is dropped")
+                        .expected("minutes (`45`), a clock duration h:mm:ss (`0:45:00`) or a duration with units (`45 min`, `1 h 15 min`)")
+                        .found(format!("`{raw}`"))
+                        .hint("export durations as h:mm:ss or in minutes"),
+                );
+                return None;
+            }
+        };
         if !(0.0..=MAX_ACTIVITY_MINUTES).contains(&minutes) {
             d.push(
                 c.warn("minutes", "implausible minutes; the row is dropped")
@@ -979,6 +1357,10 @@ pub fn parse_activity(
         };
         Some((activity, minutes, met, met_source, steps))
     });
+    if let Some(e) = conflict {
+        diags.push(e);
+        return None;
+    }
     let acol = table.column("activity");
     // Each unknown label gets its own warning with suggestions, up to the diagnostics kept of
     // one kind: the labels of most rows. The rest are counted in one warning (a file of 49,000

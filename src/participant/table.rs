@@ -13,7 +13,7 @@ use super::quantity::{NumberError, parse_decimal, parse_grouped};
 use crate::diag::Diagnostic;
 use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_ROWS};
 pub use crate::program::files::{FileSpec, LocalZone};
-use chrono::{DateTime, FixedOffset, NaiveDate, NaiveDateTime, NaiveTime, Offset};
+use chrono::{DateTime, Datelike, FixedOffset, NaiveDate, NaiveDateTime, NaiveTime, Offset};
 use std::cell::{Cell, RefCell};
 use std::collections::{BTreeMap, HashMap};
 use std::sync::Arc;
@@ -93,6 +93,9 @@ pub struct CsvOptions {
     pub columns: Arc<BTreeMap<String, ColumnMap>>,
     /// The program's own activity labels.
     pub activities: Arc<crate::activities::LocalTable>,
+    /// The program's first and last day, to tell which date system spreadsheet serial dates
+    /// were written in (see [`SerialDates`]).
+    pub program_span: Option<(NaiveDate, NaiveDate)>,
 }
 
 impl Default for CsvOptions {
@@ -103,6 +106,7 @@ impl Default for CsvOptions {
             time_zone: None,
             columns: Arc::default(),
             activities: Arc::default(),
+            program_span: None,
         }
     }
 }
@@ -140,6 +144,8 @@ pub struct Table {
     units: BTreeMap<&'static str, String>,
     /// Headers read as one of our columns under another name: (as written, our column).
     renamed: Vec<(String, &'static str)>,
+    /// Each of our columns' header as written.
+    headers: BTreeMap<&'static str, String>,
     /// Set when a number was read with a decimal comma.
     decimal_comma: Cell<bool>,
     /// Set when a number was read with thousands separators.
@@ -150,12 +156,29 @@ pub struct Table {
     utc_converted: Cell<bool>,
     /// Set when the date column's header says its times are UTC (`Date (UTC)`).
     dates_in_utc: bool,
+    /// The date system of the file's spreadsheet serial dates, with the first one read (as
+    /// written, and its date), when it has any.
+    serial_dates: Option<(SerialDates, String, NaiveDate)>,
+    /// The order of the file's numeric dates (`13/05/2026`), when it has any and the program
+    /// sets no format.
+    numeric_order: Option<NumericOrder>,
+    /// When dates come from date rows above the measurements: the field of the time of day,
+    /// which messages about a row's date point at.
+    date_rows_in: Option<usize>,
+    /// Rows with a summary label where the date would be (`Average`): how many, and the first.
+    summary_rows: RefCell<(usize, Option<(u64, String)>)>,
+    /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
+    /// the file's note.
+    recognised: RefCell<std::collections::BTreeSet<&'static str>>,
 }
 
 impl Table {
     /// 1-based field number of `col` (for diagnostics), when the file has it.
     pub fn column(&self, col: &str) -> Option<u64> {
-        self.columns.get(col).map(|&i| i as u64 + 1)
+        match self.date_rows_in {
+            Some(t) if col == "date" => Some(t as u64 + 1),
+            _ => self.columns.get(col).map(|&i| i as u64 + 1),
+        }
     }
 
     /// The trimmed text of `col` in `row`; `None` when the column is absent or the cell empty.
@@ -179,9 +202,34 @@ impl Table {
             .map(|(w, _)| w.as_str())
     }
 
+    /// Records a form of value recognised in the cells, stated once in the file's note.
+    pub fn recognised(&self, what: &'static str) {
+        self.recognised.borrow_mut().insert(what);
+    }
+
+    /// The header of `col` as written (`Weight (kg)`).
+    pub fn written_header(&self, col: &str) -> Option<&str> {
+        self.headers.get(col).map(String::as_str)
+    }
+
     /// The unit written in the header of `col` (`Weight (lb)` → `lb`), lowercase.
     pub fn header_unit(&self, col: &str) -> Option<&str> {
         self.units.get(col).map(String::as_str)
+    }
+
+    /// Whether a field of `row` outside our columns (a `Meal` column, say) holds one of
+    /// `labels` (lowercase), whatever its case, spacing or final colon (`TOTAL:`).
+    pub fn row_labelled(&self, row: &Row, labels: &[&str]) -> bool {
+        self.row_label(row, labels).is_some()
+    }
+
+    /// The first field of `row` outside our columns that holds one of `labels` (see
+    /// [`Table::row_labelled`]).
+    pub fn row_label<'t>(&'t self, row: &Row, labels: &[&str]) -> Option<&'t str> {
+        (0..self.width)
+            .filter(|i| !self.columns.values().any(|c| c == i))
+            .filter_map(|i| self.field(row, i))
+            .find(|f| is_label(f, labels))
     }
 
     /// Whether rows `a` and `b` hold the same text in every field.
@@ -215,11 +263,17 @@ impl Table {
             sniffed,
             units: BTreeMap::new(),
             renamed: Vec::new(),
+            headers: BTreeMap::new(),
             decimal_comma: Cell::new(false),
             thousands: Cell::new(false),
             timestamps: Cell::new(false),
             utc_converted: Cell::new(false),
             dates_in_utc: false,
+            serial_dates: None,
+            numeric_order: None,
+            date_rows_in: None,
+            summary_rows: RefCell::new((0, None)),
+            recognised: RefCell::default(),
         }
     }
 
@@ -262,6 +316,32 @@ impl Table {
             }
             s.push(')');
             parts.push(s);
+        }
+        if let Some((system, example, date)) = &self.serial_dates {
+            parts.push(format!(
+                "dates written as spreadsheet serial numbers read in the {} date system, the only one that puts them within the program (`{example}` = {date})",
+                system.name()
+            ));
+        }
+        parts.extend(self.recognised.borrow().iter().map(|w| w.to_string()));
+        if let Some(order) = self.numeric_order {
+            parts.push(
+                match order {
+                    NumericOrder::DayFirst => "dates such as `13/05/2026` read day first, the only order that reads every date of the file",
+                    NumericOrder::MonthFirst => "dates such as `05/13/2026` read month first, the only order that reads every date of the file",
+                }
+                .to_string(),
+            );
+        }
+        if let (n, Some((line, label))) = &*self.summary_rows.borrow() {
+            let rows = if *n == 1 {
+                "1 row"
+            } else {
+                &format!("{n} rows")
+            };
+            parts.push(format!(
+                "{rows} summing up the others (`{label}` on line {line}) left out: not measurements"
+            ));
         }
         for (written, col) in &self.renamed {
             parts.push(format!("column `{written}` read as `{col}`"));
@@ -422,13 +502,167 @@ pub fn read_table(
         };
         read_records(reader, &file, diags)
     })
-    .and_then(|table| match day_month_swapped(&table, opts, ctx) {
-        Some(d) => {
+    .and_then(|mut table| {
+        if let Some(d) =
+            day_month_swapped(&table, opts, ctx).or_else(|| dotted_month_first(&table, opts, ctx))
+        {
             diags.push(d);
-            None
+            return None;
         }
-        None => Some(table),
+        match serial_dates(&table, opts, ctx)
+            .and_then(|serial| numeric_order(&table, opts, ctx).map(|order| (serial, order)))
+        {
+            Ok((serial, order)) => {
+                table.serial_dates = serial;
+                table.numeric_order = order;
+                Some(table)
+            }
+            Err(d) => {
+                diags.push(*d);
+                None
+            }
+        }
     })
+}
+
+/// The two date systems of spreadsheet serial dates (ECMA-376, "Date Representation": the
+/// 1900 and the 1904 date base systems; Part 1 §18.17.4, the section number from memory). A
+/// workbook counts days from one or the other; its CSV export writes the count alone when a
+/// date cell is not formatted as a date, and does not say which system.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SerialDates {
+    /// Serial 1 is 1 January 1900, and 1900 is treated as a leap year, so from serial 61
+    /// (1 March 1900) on, serial n is n days after 30 December 1899 (the default system).
+    From1900,
+    /// Serial 0 is 1 January 1904 (older Mac workbooks): 1,462 days after the 1900 system.
+    From1904,
+}
+
+impl SerialDates {
+    fn name(self) -> &'static str {
+        match self {
+            SerialDates::From1900 => "1900",
+            SerialDates::From1904 => "1904",
+        }
+    }
+
+    /// The date and time of `serial` (a whole number of days and a fraction of a day), when it
+    /// is a date after February 1900 in this system (and not beyond the systems' last day,
+    /// 31 December 9999).
+    pub fn date_time(self, serial: f64) -> Option<NaiveDateTime> {
+        let (base, first) = match self {
+            SerialDates::From1900 => (NaiveDate::from_ymd_opt(1899, 12, 30)?, 61.0),
+            SerialDates::From1904 => (NaiveDate::from_ymd_opt(1904, 1, 1)?, 0.0),
+        };
+        if !(first..3_000_000.0).contains(&serial) {
+            return None;
+        }
+        let days = serial.floor();
+        // To the second: a time of day is stored as a fraction of 86,400 seconds.
+        let seconds = ((serial - days) * 86_400.0).round() as i64;
+        let dt = base.and_hms_opt(0, 0, 0)?
+            + chrono::Duration::days(days as i64)
+            + chrono::Duration::seconds(seconds);
+        (dt.year() <= 9999).then_some(dt)
+    }
+}
+
+/// Days either side of the program within which serial dates must fall for their date system
+/// to be taken: data from screening before the start or follow-up after the end still fit,
+/// and the two systems' readings (1,462 days apart) cannot both fit a program of up to two
+/// years (common practice).
+pub const SERIAL_DATE_MARGIN_DAYS: i64 = 365;
+
+/// Whether `s` is written as a spreadsheet serial date: digits, and a fraction of a day.
+fn is_serial(s: &str) -> bool {
+    let (int, frac) = s.split_once('.').unwrap_or((s, "0"));
+    // Five digits: 10000 to 99999 are the years 1927 to 2177 across the two systems.
+    int.len() == 5
+        && !frac.is_empty()
+        && int.bytes().all(|b| b.is_ascii_digit())
+        && frac.bytes().all(|b| b.is_ascii_digit())
+}
+
+/// The date system of a file's spreadsheet serial dates (`46143` for 1 May 2026): the one
+/// system that puts every one of them within the program (give or take
+/// [`SERIAL_DATE_MARGIN_DAYS`]). When both or neither do, the file is refused at the first
+/// serial date: read in the wrong system every date would be four years off.
+fn serial_dates(
+    table: &Table,
+    opts: &CsvOptions,
+    ctx: &FileCtx,
+) -> Result<Option<(SerialDates, String, NaiveDate)>, Box<Diagnostic>> {
+    let serials: Vec<(&Row, &str)> = table
+        .rows
+        .iter()
+        .filter_map(|r| table.get(r, "date").map(|s| (r, s)))
+        .filter(|(_, s)| is_serial(s) && parse_when(s, opts).is_none())
+        .collect();
+    let Some(&(first_row, first)) = serials.first() else {
+        return Ok(None);
+    };
+    let margin = chrono::Duration::days(SERIAL_DATE_MARGIN_DAYS);
+    let fits = |system: SerialDates| {
+        opts.program_span.is_some_and(|(start, end)| {
+            serials.iter().all(|(_, s)| {
+                s.parse::<f64>()
+                    .ok()
+                    .and_then(|v| system.date_time(v))
+                    .is_some_and(|dt| dt.date() >= start - margin && dt.date() <= end + margin)
+            })
+        })
+    };
+    let fitting: Vec<SerialDates> = [SerialDates::From1900, SerialDates::From1904]
+        .into_iter()
+        .filter(|&s| fits(s))
+        .collect();
+    let reading = |system: SerialDates| {
+        first
+            .parse::<f64>()
+            .ok()
+            .and_then(|v| system.date_time(v))
+            .map_or("no date".to_string(), |dt| dt.date().to_string())
+    };
+    // Among other dates, a serial date that cannot be placed is warned about on its own row.
+    let dated = table
+        .rows
+        .iter()
+        .filter(|r| table.get(r, "date").is_some())
+        .count();
+    if fitting.len() != 1 && serials.len() < dated {
+        return Ok(None);
+    }
+    if let [system] = fitting.as_slice() {
+        let date = first
+            .parse::<f64>()
+            .ok()
+            .and_then(|v| system.date_time(v))
+            .expect("it fits")
+            .date();
+        return Ok(Some((*system, first.to_string(), date)));
+    }
+    let span = match opts.program_span {
+        Some((a, b)) => {
+            format!("the program ({a} to {b}, give or take {SERIAL_DATE_MARGIN_DAYS} days)")
+        }
+        None => "the program".to_string(),
+    };
+    let why = if fitting.is_empty() {
+        format!("neither system puts every serial date of the file within {span}")
+    } else {
+        format!("both systems put every serial date of the file within {span}")
+    };
+    Err(Box::new(ctx
+        .error(format!(
+            "the dates are spreadsheet serial numbers (`{first}` is {} in the 1900 date system, {} in the 1904 one) and {why}, so which date each stands for cannot be told; the file is not used",
+            reading(SerialDates::From1900),
+            reading(SerialDates::From1904)
+        ))
+        .at(first_row.line, table.column("date"))
+        .field("date")
+        .expected("dates such as `2026-05-01`, or serial numbers that fall within the program in one date system only")
+        .found(format!("`{first}`"))
+        .hint("in the spreadsheet, format the date column as dates (e.g. yyyy-mm-dd) and save the CSV again")))
 }
 
 /// A file whose dates are written with day and month the other way round from
@@ -566,6 +800,8 @@ fn read_records(
     };
     // One record buffer for the whole file (csv's record iterator clones every record).
     let mut rec = csv::StringRecord::new();
+    // A title line above the header (`Foods`, `Body`: some trackers' exports start so).
+    let mut title = title_line(text, spec, opts, delimiter);
     let header = loop {
         match reader.read_record(&mut rec) {
             // Nothing but (blank) line ends: no header row at all. A file with only a header
@@ -600,6 +836,7 @@ fn read_records(
                 return None;
             }
             Ok(true) if rec.iter().all(|f| f.trim().is_empty()) => continue,
+            Ok(true) if title.take().is_some() => continue,
             Ok(true) => break rec.clone(),
         }
     };
@@ -631,6 +868,12 @@ fn read_records(
         })
     };
     let header_line = line_of(header.position());
+    if let Some(t) = title_line(text, spec, opts, delimiter) {
+        ctx.note(format!(
+            "the first line, `{}`, is a title above the header (line {header_line}) and is not read",
+            shorten(&t, 40)
+        ));
+    }
     // Budgets (crate::limits): checked before anything is built from the header or the rows.
     if header.len() > MAX_CSV_COLUMNS {
         diags.push(
@@ -659,7 +902,12 @@ fn read_records(
         );
         return None;
     }
-    let written: Vec<String> = header.iter().map(|h| h.trim().to_string()).collect();
+    let mut written: Vec<String> = header.iter().map(|h| h.trim().to_string()).collect();
+    // A delimiter at the end of the header names no column (the rows' own trailing empty
+    // fields are ignored below; a value there is a field too many).
+    while written.len() > 1 && written.last().is_some_and(String::is_empty) {
+        written.pop();
+    }
     let names: Vec<String> = written.iter().map(|h| h.to_lowercase()).collect();
     let user_map = opts.columns.get(spec.kind());
     let mut columns = BTreeMap::new();
@@ -746,10 +994,18 @@ fn read_records(
             ),
         }
     }
+    // Dates written as rows of their own above the measurements, which have only a time of
+    // day (`Time,Weight,…` / `" Nov 25, 2026",` / `7:12 AM,72.5 kg,…`: a smart scale app's
+    // export): whether they are is known once the rows are read.
+    let time_for_date_rows: Option<usize> = (!columns.contains_key("date")
+        && spec.required.contains(&"date"))
+    .then(|| columns.get("time").copied())
+    .flatten();
     let missing: Vec<&str> = spec
         .required
         .iter()
         .filter(|c| !columns.contains_key(**c))
+        .filter(|c| !(**c == "date" && time_for_date_rows.is_some()))
         // A unit in the value column's header stands for the unit column.
         .filter(|c| {
             !spec
@@ -759,7 +1015,13 @@ fn read_records(
         })
         .copied()
         .collect();
-    if !missing.is_empty() {
+    // A unit column may also be stood for by units written in the value column's cells
+    // (`72.5 kg`): whether they are is known once the rows are read.
+    let units_in_cells: Option<&'static str> = spec.header_units.iter().find_map(|(v, _, r)| {
+        (columns.contains_key(v) && r.is_some() && missing.iter().all(|m| Some(*m) == *r))
+            .then_some(*v)
+    });
+    let missing_error = |missing: &[&str]| {
         let looks_like_data = names
             .first()
             .is_some_and(|f| parse_when(f, opts).is_some() || parse_decimal(f).is_ok());
@@ -779,32 +1041,33 @@ fn read_records(
             )
         };
         let s = if missing.len() == 1 { "" } else { "s" };
-        diags.push(
-            ctx.error(format!(
-                "{}missing required column{s} {}; the file is not used",
-                if looks_like_data {
-                    "no header row: "
-                } else {
-                    ""
-                },
-                missing
-                    .iter()
-                    .map(|m| format!("`{m}`"))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            ))
-            .at(header_line, None)
-            .expected(format!("columns {}", column_list(spec)))
-            .found(format!("`{}`", written.join(&delim_text)))
-            .hint(hint),
-        );
+        ctx.error(format!(
+            "{}missing required column{s} {}; the file is not used",
+            if looks_like_data {
+                "no header row: "
+            } else {
+                ""
+            },
+            missing
+                .iter()
+                .map(|m| format!("`{m}`"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ))
+        .at(header_line, None)
+        .expected(format!("columns {}", column_list(spec)))
+        .found(format!("`{}`", written.join(&delim_text)))
+        .hint(hint)
+    };
+    if !missing.is_empty() && units_in_cells.is_none() {
+        diags.push(missing_error(&missing));
         usable = false;
     }
     if !usable {
         return None;
     }
-    // Extra columns are only worth a word when the header itself is right.
-    diags.extend(extra);
+    // Problems of the rows, kept apart until the file is known to be usable.
+    let mut row_diags: Vec<Diagnostic> = Vec::new();
     // The last field a row must reach: rows that end early, before no required column, are
     // read with the rest empty (exports leave off trailing empty values).
     let last_required = spec
@@ -814,12 +1077,28 @@ fn read_records(
         .max()
         .copied();
     let (mut short_rows, mut trailing_empty) = (0usize, 0usize);
+    // The date row above the rows being read, and how many there were.
+    let mut current_date: Option<(u64, String)> = None;
+    let mut date_rows = 0usize;
+    // The first line that repeats the header.
+    let mut repeated_headers: Option<u64> = None;
+    let mut headers: BTreeMap<&'static str, String> = columns
+        .iter()
+        .map(|(c, &i)| (*c, written[i].clone()))
+        .collect();
+    // The date of each measurement, from the date row above it, is kept as one more field.
+    if let Some(t) = time_for_date_rows {
+        columns.insert("date", names.len());
+        headers.insert("date", written[t].clone());
+    }
     let mut table = Table {
         columns,
+        headers,
         rows: Vec::new(),
         text: String::with_capacity(text.len()),
         bounds: Vec::new(),
-        width: names.len(),
+        width: names.len() + usize::from(time_for_date_rows.is_some()),
+        date_rows_in: time_for_date_rows,
         units,
         renamed,
         header_line,
@@ -832,6 +1111,8 @@ fn read_records(
             Ok(true) => {
                 records += 1;
                 if records > MAX_CSV_ROWS {
+                    diags.append(&mut extra);
+                    diags.append(&mut row_diags);
                     diags.push(
                         ctx.error(format!(
                             "the file has more than {MAX_CSV_ROWS} rows, the limit for one file; it was not read further and cannot be used"
@@ -850,7 +1131,7 @@ fn read_records(
                 if let Some(l) = line {
                     d = d.at(l, None);
                 }
-                diags.push(d);
+                row_diags.push(d);
                 continue;
             }
         }
@@ -858,8 +1139,26 @@ fn read_records(
         if rec.iter().all(|f| f.trim().is_empty()) {
             continue;
         }
+        // The header again (exports appended to one another): no data.
+        if rec.len() >= written.len()
+            && rec.iter().zip(&written).all(|(f, h)| f.trim() == h)
+            && rec.iter().skip(written.len()).all(|f| f.trim().is_empty())
+        {
+            repeated_headers.get_or_insert(line);
+            continue;
+        }
+        // A date row: the date alone, in the first field.
+        if time_for_date_rows.is_some()
+            && let Some(first) = rec.get(0).map(str::trim)
+            && rec.iter().skip(1).all(|f| f.trim().is_empty())
+            && parse_when(first, opts).is_some_and(|w| w.time.is_none())
+        {
+            current_date = Some((line, first.to_string()));
+            date_rows += 1;
+            continue;
+        }
         if let Some(i) = rec.iter().position(|f| f.len() > MAX_CSV_FIELD_BYTES) {
-            diags.push(
+            row_diags.push(
                 ctx.warning(format!(
                     "a field of {} bytes is longer than the limit of {MAX_CSV_FIELD_BYTES}; the row is dropped",
                     rec[i].len()
@@ -922,7 +1221,7 @@ fn read_records(
             } else {
                 "every row needs one value per header column (leave a value empty, but keep its delimiter); quote text containing the delimiter".to_string()
             });
-            diags.push(d);
+            row_diags.push(d);
             continue;
         }
         let first = table.bounds.len();
@@ -935,8 +1234,53 @@ fn read_records(
             let end = table.text.len();
             table.bounds.push((end, end));
         }
+        if time_for_date_rows.is_some() {
+            let start = table.text.len();
+            if let Some((_, d)) = &current_date {
+                table.text.push_str(d);
+            }
+            table.bounds.push((start, table.text.len()));
+        }
         table.rows.push(Row { line, first });
     }
+    let has_unit =
+        |s: &str| s.chars().any(|c| c.is_ascii_digit()) && s.chars().any(char::is_alphabetic);
+    // Date rows were to stand for a missing date column: without any, it is missing after all
+    // (and so is a unit column that units in the cells do not stand for).
+    if time_for_date_rows.is_some() && date_rows == 0 {
+        let units_there = units_in_cells.is_some_and(|v| {
+            table
+                .rows
+                .iter()
+                .any(|r| table.get(r, v).is_some_and(has_unit))
+        });
+        let mut missing: Vec<&str> = missing.iter().copied().filter(|_| !units_there).collect();
+        missing.insert(0, "date");
+        diags.push(missing_error(&missing));
+        return None;
+    }
+    if date_rows > 0 {
+        ctx.note(format!(
+            "dates taken from the {} date rows above the measurements, whose `{}` column holds their time of day",
+            crate::diag::thousands(date_rows),
+            written[time_for_date_rows.unwrap_or(0)]
+        ));
+    }
+    // Units in the cells were to stand for a missing unit column: without any, the column is
+    // missing after all.
+    if let Some(v) = units_in_cells
+        && !missing.is_empty()
+        && !table
+            .rows
+            .iter()
+            .any(|r| table.get(r, v).is_some_and(has_unit))
+    {
+        diags.push(missing_error(&missing));
+        return None;
+    }
+    // Extra columns are only worth a word when the header itself is right.
+    diags.extend(extra);
+    diags.extend(row_diags);
     let rows = |n: usize| {
         if n == 1 {
             "1 row".to_string()
@@ -944,6 +1288,11 @@ fn read_records(
             format!("{} rows", crate::diag::thousands(n))
         }
     };
+    if let Some(line) = repeated_headers {
+        ctx.note(format!(
+            "the header is repeated inside the file (first on line {line}: exports joined together); such lines are not read as data"
+        ));
+    }
     if short_rows > 0 {
         ctx.note(format!(
             "{} with fewer fields than the header (values left off at the end) read with the missing values empty",
@@ -957,6 +1306,28 @@ fn read_records(
         ));
     }
     Some(table)
+}
+
+/// The first non-blank line of `text` when it is a title above the header: it holds no
+/// delimiter and no quote, and the next non-blank line is a header naming the date column
+/// among others.
+fn title_line(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> Option<String> {
+    let mut lines = text.split(['\n', '\r']).filter(|l| !l.trim().is_empty());
+    let (first, second) = (lines.next()?, lines.next()?);
+    let d = delimiter as char;
+    if first.contains(d) || first.contains('"') || !second.contains(d) {
+        return None;
+    }
+    let user_map = opts.columns.get(spec.kind());
+    let names_date = second.split(d).any(|h| {
+        let key = header_key(h.trim().trim_matches('"')).0;
+        key == "date"
+            || spec.aliases.iter().any(|(a, c)| *a == key && *c == "date")
+            || user_map
+                .and_then(|m| m.get(&key))
+                .is_some_and(|c| c == "date")
+    });
+    names_date.then(|| first.trim().trim_start_matches('\u{feff}').to_string())
 }
 
 /// The first `max` characters of `s`, with `…` when cut.
@@ -994,9 +1365,11 @@ const ISO_NAIVE: [&str; 4] = [
     "%Y-%m-%d %H:%M",
 ];
 /// ISO-8601 date-times with an offset (`+01:00`, `+0100`); `Z` is read as `+00:00`.
-const ISO_OFFSET: [&str; 4] = [
+const ISO_OFFSET: [&str; 5] = [
     "%Y-%m-%dT%H:%M:%S%.f%#z",
     "%Y-%m-%d %H:%M:%S%.f%#z",
+    // With a space before the offset, as phone health apps write it.
+    "%Y-%m-%d %H:%M:%S %#z",
     "%Y-%m-%dT%H:%M%#z",
     "%Y-%m-%d %H:%M%#z",
 ];
@@ -1079,7 +1452,207 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
             }
         }
     }
+    written_out(s, format == "%Y-%m-%d").map(|(date, time)| When {
+        date,
+        time,
+        from_utc: false,
+    })
+}
+
+/// Dates as apps and spreadsheets write them out, whatever the program's format, each with one
+/// reading only: the month by name (`May 1, 2026`, `1 May 2026`, `1-May-2026`), year first with
+/// slashes (`2026/05/01`) and, when the program has not set a day-and-month format of its own
+/// (`day_first_dots`), day first with dots (`01.05.2026`, the dotted form of the countries that
+/// write it, always day first: common practice; a file whose dotted dates turn out month first
+/// is refused, see [`dotted_month_first`]). A time may follow (`07:12`, `07:12:30`, `7:12 AM`).
+fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<NaiveTime>)> {
+    const NAMED: [&str; 11] = [
+        "%B %d, %Y",
+        "%b %d, %Y",
+        "%B %d %Y",
+        "%b %d %Y",
+        "%d %B %Y",
+        "%d %b %Y",
+        "%d-%b-%Y",
+        // With the weekday, which must be the date's (`Fri, May 1, 2026`).
+        "%a, %b %d, %Y",
+        "%A, %B %d, %Y",
+        "%a, %d %b %Y",
+        "%A, %d %B %Y",
+    ];
+    const TIMES: [&str; 4] = ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"];
+    // The month's name is a word of three letters or more (`AM`, `PM` are not).
+    // (Only a word that starts like a month is tried: a file of summary rows or other words
+    // is not run through every form.)
+    const MONTHS: [&str; 12] = [
+        "jan", "feb", "mar", "apr", "may", "jun", "jul", "aug", "sep", "oct", "nov", "dec",
+    ];
+    let named = s.split([' ', ',', '-']).any(|w| {
+        w.len() >= 3
+            && w.chars().all(|c| c.is_ascii_alphabetic())
+            && MONTHS.iter().any(|m| w[..3].eq_ignore_ascii_case(m))
+    });
+    let b = s.as_bytes();
+    let dates: &[&str] = if named {
+        &NAMED
+    } else if b.len() >= 10 && b[4] == b'/' {
+        &["%Y/%m/%d"]
+    } else if day_first_dots && b.len() >= 10 && b[2] == b'.' && b[5] == b'.' {
+        &["%d.%m.%Y"]
+    } else {
+        return None;
+    };
+    for f in dates {
+        if let Ok(d) = NaiveDate::parse_from_str(s, f) {
+            return Some((d, None));
+        }
+        for sep in [" ", ", "] {
+            for t in TIMES {
+                if let Ok(dt) = NaiveDateTime::parse_from_str(s, &format!("{f}{sep}{t}")) {
+                    return Some((dt.date(), Some(dt.time())));
+                }
+            }
+        }
+    }
     None
+}
+
+/// Which comes first in a file's numeric dates written with slashes or dashes (`13/05/2026`,
+/// `05-13-2026`), for a program that has not set `input.date_format`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NumericOrder {
+    /// Day, month, year.
+    DayFirst,
+    /// Month, day, year.
+    MonthFirst,
+}
+
+/// The first number, the second, the year and the separator of a numeric date.
+type NumericParts = (u32, u32, i32, char);
+
+/// The (first, second, year, separator) of `dd/mm/yyyy`-like text (one or two digits for the
+/// first two, slashes or dashes), before any time.
+fn numeric_parts(s: &str) -> Option<NumericParts> {
+    let day = s.split([' ', 'T']).next()?;
+    let sep = if day.contains('/') { '/' } else { '-' };
+    let parts: Vec<&str> = day.split(sep).collect();
+    let [a, b, y] = parts.as_slice() else {
+        return None;
+    };
+    let digits = |t: &str, n: std::ops::RangeInclusive<usize>| {
+        n.contains(&t.len()) && t.bytes().all(|c| c.is_ascii_digit())
+    };
+    if !(digits(a, 1..=2) && digits(b, 1..=2) && digits(y, 4..=4)) {
+        return None;
+    }
+    Some((a.parse().ok()?, b.parse().ok()?, y.parse().ok()?, sep))
+}
+
+/// The order of a file's numeric dates (see [`NumericOrder`]): the one that reads every one of
+/// them as a real date, when only one does (a date such as `13/05/2026` tells). When both do
+/// (every day is the 12th or before), the dates cannot be read without a guess and the file is
+/// refused at the first; when neither does, each date that does not read is warned about.
+fn numeric_order(
+    table: &Table,
+    opts: &CsvOptions,
+    ctx: &FileCtx,
+) -> Result<Option<NumericOrder>, Box<Diagnostic>> {
+    if opts.date_format != "%Y-%m-%d" {
+        return Ok(None);
+    }
+    let dates: Vec<(&Row, &str, NumericParts)> = table
+        .rows
+        .iter()
+        .filter_map(|r| {
+            let s = table.get(r, "date")?;
+            Some((r, s, numeric_parts(s)?))
+        })
+        .filter(|(_, s, _)| parse_when(s, opts).is_none())
+        .collect();
+    let Some(&(first_row, first, _)) = dates.first() else {
+        return Ok(None);
+    };
+    let all = |f: fn(u32, u32, i32) -> Option<NaiveDate>| {
+        dates
+            .iter()
+            .all(|(_, _, (a, b, y, _))| f(*a, *b, *y).is_some())
+    };
+    let day_first = all(|a, b, y| NaiveDate::from_ymd_opt(y, b, a));
+    let month_first = all(|a, b, y| NaiveDate::from_ymd_opt(y, a, b));
+    match (day_first, month_first) {
+        (true, false) => Ok(Some(NumericOrder::DayFirst)),
+        (false, true) => Ok(Some(NumericOrder::MonthFirst)),
+        (false, false) => Ok(None),
+        // Among other dates, the few that cannot be told are warned about one by one.
+        (true, true)
+            if dates.len()
+                < table
+                    .rows
+                    .iter()
+                    .filter(|r| table.get(r, "date").is_some())
+                    .count() =>
+        {
+            Ok(None)
+        }
+        (true, true) => {
+            let sep = dates[0].2.3;
+            Err(Box::new(
+                ctx.error(format!(
+                    "no date of the file tells whether its day or its month comes first (`{first}`: every day is the 12th or before), so its dates cannot be read without a guess; the file is not used"
+                ))
+                .at(first_row.line, table.column("date"))
+                .field("date")
+                .expected("ISO 8601 dates (`2026-05-01`), or the order set in program.yaml")
+                .found(format!("`{first}`"))
+                .hint(format!(
+                    "set `input.date_format: \"%d{sep}%m{sep}%Y\"` (day first) or `\"%m{sep}%d{sep}%Y\"` (month first) in program.yaml, or export the dates as ISO 8601"
+                )),
+            ))
+        }
+    }
+}
+
+/// A file whose dotted dates are month first (`05.13.2026`): read day first (see
+/// [`written_out`]) its dates up to the 12th would be on the wrong day, so it is refused at the
+/// first date that shows it.
+fn dotted_month_first(table: &Table, opts: &CsvOptions, ctx: &FileCtx) -> Option<Diagnostic> {
+    if opts.date_format != "%Y-%m-%d" {
+        return None;
+    }
+    let row = table.rows.iter().find(|r| {
+        table.get(r, "date").is_some_and(|s| {
+            let day = s.split(' ').next().unwrap_or(s);
+            day.len() == 10
+                && day.as_bytes()[2] == b'.'
+                && NaiveDate::parse_from_str(day, "%d.%m.%Y").is_err()
+                && NaiveDate::parse_from_str(day, "%m.%d.%Y").is_ok()
+        })
+    })?;
+    // Only a file with a dotted date that reads both ways, differently, would be misread; a
+    // lone month-first date is warned about as unreadable.
+    let both_ways = |r: &&Row| {
+        table.get(r, "date").is_some_and(|s| {
+            let day = s.split(' ').next().unwrap_or(s);
+            day.len() == 10
+                && day.as_bytes()[2] == b'.'
+                && day[..2] != day[3..5]
+                && NaiveDate::parse_from_str(day, "%d.%m.%Y").is_ok()
+                && NaiveDate::parse_from_str(day, "%m.%d.%Y").is_ok()
+        })
+    };
+    table.rows.iter().find(both_ways)?;
+    let found = table.get(row, "date").unwrap_or("");
+    Some(
+        ctx.error(format!(
+            "the dotted dates are written month first (line {}'s `{found}` has no 13th month), so those up to the 12th cannot be read as day first; the file is not used",
+            row.line
+        ))
+        .at(row.line, table.column("date"))
+        .field("date")
+        .expected("dotted dates day first (`13.05.2026`), or ISO 8601 dates (`2026-05-13`)")
+        .found(format!("`{found}`"))
+        .hint("if every file of the program writes dates month first with dots, set `input.date_format: \"%m.%d.%Y\"` in program.yaml"),
+    )
 }
 
 /// `NaiveDate::parse_from_str(s, format)`, with the common ISO form `YYYY-MM-DD` read directly
@@ -1107,6 +1680,31 @@ fn iso_date(s: &str) -> Option<NaiveDate> {
     };
     let (y, m, d) = (num(0..4)?, num(5..7)?, num(8..10)?);
     NaiveDate::from_ymd_opt(i32::try_from(y).ok()?, m, d)
+}
+
+/// Words of rows that sum up the others (a spreadsheet's `Average` row, a food diary's `Total`).
+pub const SUMMARY_LABELS: [&str; 14] = [
+    "total",
+    "totals",
+    "daily total",
+    "sum",
+    "average",
+    "avg",
+    "mean",
+    "median",
+    "min",
+    "max",
+    "summe",
+    "gesamt",
+    "durchschnitt",
+    "mittelwert",
+];
+
+/// Whether `text` is one of `labels` (lowercase), whatever its case, spacing or final colon.
+pub fn is_label(text: &str, labels: &[&str]) -> bool {
+    let t = text.trim().trim_end_matches(':').trim().to_lowercase();
+    let t = t.split_whitespace().collect::<Vec<_>>().join(" ");
+    labels.contains(&t.as_str())
 }
 
 /// A bad value that was warned about and left out.
@@ -1161,18 +1759,76 @@ impl Cells<'_> {
     /// A required date, with its time of day when one was written (see [`parse_when`]).
     pub fn when(&self, col: &str, diags: &mut Vec<Diagnostic>) -> Option<When> {
         let Some(s) = self.text(col) else {
+            // A row without a date that sums up the others (`,Total,120` under an activity's
+            // rows) is no measurement either.
+            if let Some(label) = (0..self.table.width)
+                .filter_map(|i| self.table.field(self.row, i))
+                .find(|f| is_label(f, &SUMMARY_LABELS))
+            {
+                self.summary_row(label);
+                return None;
+            }
             // Pushes the "is empty" warning.
             return self.required_text(col, diags).and(None);
         };
-        match parse_when(s, self.opts).map(|w| self.utc_by_header(s, w)) {
+        let when = parse_when(s, self.opts)
+            .or_else(|| self.serial_date(s))
+            .or_else(|| self.numeric_date(s));
+        match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
                     self.table.timestamps.set(true);
+                }
+                // Written out rather than in the program's format or ISO 8601.
+                let b = s.as_bytes();
+                let month_word = |w: &str| {
+                    w.len() >= 3
+                        && w.chars().all(|c| c.is_ascii_alphabetic())
+                        && !w.eq_ignore_ascii_case("utc")
+                };
+                if s.split([' ', ',', '-']).any(month_word) {
+                    self.table
+                        .recognised("dates with the month's name (`May 1, 2026`)");
+                } else if b.len() >= 10
+                    && b[2] == b'.'
+                    && b[5] == b'.'
+                    && self.opts.date_format == "%Y-%m-%d"
+                {
+                    self.table
+                        .recognised("dotted dates read day first (`01.05.2026` = 1 May 2026)");
+                } else if b.len() >= 10 && b[4] == b'/' && !self.opts.date_format.contains('/') {
+                    self.table
+                        .recognised("dates written year/month/day (`2026/05/01`)");
                 }
                 if w.from_utc {
                     self.table.utc_converted.set(true);
                 }
                 Some(w)
+            }
+            // A row that sums up the others (`Average`, `Total` where the date would be) is no
+            // measurement: left out, and counted for the file's note.
+            None if is_label(s, &SUMMARY_LABELS) => {
+                self.summary_row(s);
+                None
+            }
+            None if is_serial(s) => {
+                let reading = |system: SerialDates| {
+                    s.parse::<f64>()
+                        .ok()
+                        .and_then(|v| system.date_time(v))
+                        .map_or("no date".to_string(), |dt| dt.date().to_string())
+                };
+                diags.push(
+                    self.warn(col, format!(
+                        "a spreadsheet serial date whose date system cannot be told (`{s}` is {} in the 1900 date system, {} in the 1904 one); the row is dropped",
+                        reading(SerialDates::From1900),
+                        reading(SerialDates::From1904)
+                    ))
+                    .expected("a date such as `2026-05-01`")
+                    .found(format!("`{s}`"))
+                    .hint("in the spreadsheet, format the date column as dates (e.g. yyyy-mm-dd) and save the CSV again"),
+                );
+                None
             }
             None => {
                 let probe = NaiveDate::from_ymd_opt(2026, 4, 1)
@@ -1208,6 +1864,54 @@ impl Cells<'_> {
                 None
             }
         }
+    }
+
+    /// Counts this row as one that sums up the others (`label`), for the file's note.
+    pub fn summary_row(&self, label: &str) {
+        let mut rows = self.table.summary_rows.borrow_mut();
+        rows.0 += 1;
+        rows.1.get_or_insert((self.row.line, label.to_string()));
+    }
+
+    /// A numeric date (`13/05/2026`) in the order found for the file (see [`NumericOrder`]),
+    /// with a time if one follows.
+    fn numeric_date(&self, s: &str) -> Option<When> {
+        let order = self.table.numeric_order?;
+        let (a, b, y, _) = numeric_parts(s)?;
+        let (day, month) = match order {
+            NumericOrder::DayFirst => (a, b),
+            NumericOrder::MonthFirst => (b, a),
+        };
+        let date = NaiveDate::from_ymd_opt(y, month, day)?;
+        let rest = s.split_once([' ', 'T']).map(|(_, t)| t.trim());
+        let time = match rest {
+            None | Some("") => None,
+            Some(t) => Some(
+                ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"]
+                    .iter()
+                    .find_map(|f| NaiveTime::parse_from_str(t, f).ok())?,
+            ),
+        };
+        Some(When {
+            date,
+            time,
+            from_utc: false,
+        })
+    }
+
+    /// A spreadsheet serial date, in the date system found for the file (see [`SerialDates`]).
+    fn serial_date(&self, s: &str) -> Option<When> {
+        let (system, _, _) = self.table.serial_dates.as_ref()?;
+        if !is_serial(s) {
+            return None;
+        }
+        let dt = system.date_time(s.parse().ok()?)?;
+        let midnight = NaiveTime::MIN;
+        Some(When {
+            date: dt.date(),
+            time: (dt.time() != midnight).then_some(dt.time()),
+            from_utc: false,
+        })
     }
 
     /// A time written without an offset under a header that says UTC (`Date (UTC)`), taken as
@@ -1371,6 +2075,279 @@ mod tests {
         let (t, d) = read(same, &dmy);
         assert_eq!(t.unwrap().rows.len(), 2);
         assert!(d.is_empty(), "{d:?}");
+    }
+
+    #[test]
+    fn dates_written_out_by_apps_and_spreadsheets_are_read() {
+        let opts = CsvOptions::default();
+        let day = |s: &str, o: &CsvOptions| {
+            parse_when(s, o).map(|w| (w.date.to_string(), w.time.map(|t| t.to_string())))
+        };
+        let may1 = Some(("2026-05-01".to_string(), None));
+        for s in [
+            "May 1, 2026",
+            "1 May 2026",
+            "1-May-2026",
+            "May 01 2026",
+            "01 May 2026",
+            "2026/05/01",
+            "01.05.2026",
+        ] {
+            assert_eq!(day(s, &opts), may1, "{s}");
+        }
+        let at = |d: &str, t: &str| Some((d.to_string(), Some(t.to_string())));
+        assert_eq!(
+            day("September 3, 2026", &opts),
+            Some(("2026-09-03".into(), None))
+        );
+        assert_eq!(
+            day("Sep 3, 2026 7:12 PM", &opts),
+            at("2026-09-03", "19:12:00")
+        );
+        assert_eq!(
+            day("3 Sep 2026, 07:12", &opts),
+            at("2026-09-03", "07:12:00")
+        );
+        assert_eq!(
+            day("2026/05/01 07:12:30", &opts),
+            at("2026-05-01", "07:12:30")
+        );
+        assert_eq!(day("13.05.2026 07:12", &opts), at("2026-05-13", "07:12:00"));
+        // A space before the offset (phone health apps): the device's local day.
+        assert_eq!(
+            day("2026-05-02 07:05:00 +0200", &opts),
+            at("2026-05-02", "07:05:00")
+        );
+        // With the weekday (1 May 2026 is a Friday).
+        assert_eq!(day("Fri, May 1, 2026", &opts), may1);
+        assert_eq!(day("Friday, 1 May 2026", &opts), may1);
+        // Not dates: a summary row, a month-first dotted date, a day that does not exist, a
+        // weekday that is not the date's.
+        for s in [
+            "Average",
+            "05.13.2026",
+            "Feb 30, 2026",
+            "2026/13/01",
+            "Thu, May 1, 2026",
+        ] {
+            assert_eq!(day(s, &opts), None, "{s}");
+        }
+        // A program with its own day-and-month format reads dotted dates only by it.
+        let dmy = CsvOptions {
+            date_format: "%d/%m/%Y".into(),
+            ..CsvOptions::default()
+        };
+        assert_eq!(day("01.05.2026", &dmy), None);
+        assert_eq!(day("May 1, 2026", &dmy), may1);
+    }
+
+    #[test]
+    fn dotted_dates_written_month_first_refuse_the_file() {
+        let (t, d) = read(
+            "date,weight,unit\n05.01.2026,72,kg\n05.13.2026 07:10,71.8,kg\n",
+            &CsvOptions::default(),
+        );
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)));
+        assert!(d[0].message.contains("month first"), "{}", d[0]);
+        // Day first, they are read.
+        let (t, d) = read(
+            "date,weight,unit\n01.05.2026,72,kg\n13.05.2026,71.8,kg\n",
+            &CsvOptions::default(),
+        );
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.unwrap().rows.len(), 2);
+    }
+
+    #[test]
+    fn a_header_repeated_inside_the_file_is_not_a_row() {
+        // Two exports joined into one file: the second header was dropped as a row with an
+        // unreadable date (and, in a file of weights, warned about).
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text = "Date,Weight,Unit\n2026-05-01,72.5,kg\nDate,Weight,Unit\n2026-05-02,72.3,kg\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.rows.iter().map(|r| r.line).collect::<Vec<_>>(), [2, 4]);
+        assert!(
+            ctx.take_notes()[0]
+                .message
+                .contains("repeated inside the file (first on line 3"),
+        );
+    }
+
+    #[test]
+    fn a_few_dates_that_cannot_be_told_among_others_cost_their_rows_only() {
+        let opts = CsvOptions {
+            program_span: NaiveDate::from_ymd_opt(2026, 4, 1)
+                .zip(NaiveDate::from_ymd_opt(2026, 9, 30)),
+            ..CsvOptions::default()
+        };
+        // One ambiguous numeric date, one unplaceable serial date and one month-first dotted
+        // date among ISO dates: each row is warned about; the file is read.
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text =
+            "date,weight,unit\n2026-05-01,72,kg\n05/04/2026,72,kg\n40000,72,kg\n05.13.2026,72,kg\n";
+        let t = read_table(text, &SPEC, &opts, &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        let read: Vec<Option<String>> = t
+            .rows
+            .iter()
+            .map(|row| {
+                let c = Cells {
+                    table: &t,
+                    row,
+                    ctx: &ctx,
+                    opts: &opts,
+                };
+                c.date("date", &mut d).map(|x| x.to_string())
+            })
+            .collect();
+        assert_eq!(read, [Some("2026-05-01".to_string()), None, None, None]);
+        assert_eq!(
+            d.iter().map(|x| x.line).collect::<Vec<_>>(),
+            [Some(3), Some(4), Some(5)]
+        );
+        assert!(
+            d[1].message
+                .contains("`40000` is 2009-07-06 in the 1900 date system"),
+            "{}",
+            d[1]
+        );
+        assert!(
+            d.iter()
+                .all(|x| x.severity == crate::diag::Severity::Warning)
+        );
+    }
+
+    #[test]
+    fn a_title_line_above_the_header_is_not_read_as_the_header() {
+        // Trackers start some exports with the section's name; the file was refused for
+        // missing columns.
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text = "Body\nDate,Weight,Unit\n\"2026-05-01\",\"72.5\",kg\n2026-05-02,72.3,kg\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.header_line, 2);
+        assert_eq!(t.rows.iter().map(|r| r.line).collect::<Vec<_>>(), [3, 4]);
+        assert_eq!(t.get(&t.rows[0], "weight"), Some("72.5"));
+        assert_eq!(
+            ctx.take_notes()[0].message,
+            "the first line, `Body`, is a title above the header (line 2) and is not read"
+        );
+        // A one-column first line above data is no title: the header is missing, as before.
+        let (t, d) = read("weight\n2026-05-01,72.5,kg\n", &CsvOptions::default());
+        assert!(t.is_none());
+        assert!(
+            d[0].message.contains("missing required columns"),
+            "{}",
+            d[0]
+        );
+    }
+
+    #[test]
+    fn serial_dates_in_both_date_systems() {
+        // ECMA-376 Part 1, "Date Representation": DATEVALUE("01-Feb-2006") is 38749 in the
+        // 1900 date base system and 37287 in the 1904 one; "03-Feb-1910" 3687 and 2225;
+        // "01-Jan-1904" is 0 in the 1904 system; 31 December 9999 is 2958465 and 2957003;
+        // serial 61 is 1 March 1900 (60 stands for the 29 February 1900 that never was).
+        let day = |s: SerialDates, v: f64| s.date_time(v).map(|dt| dt.date().to_string());
+        use SerialDates::*;
+        assert_eq!(day(From1900, 38749.0).as_deref(), Some("2006-02-01"));
+        assert_eq!(day(From1904, 37287.0).as_deref(), Some("2006-02-01"));
+        assert_eq!(day(From1900, 3687.0).as_deref(), Some("1910-02-03"));
+        assert_eq!(day(From1904, 2225.0).as_deref(), Some("1910-02-03"));
+        assert_eq!(day(From1904, 0.0).as_deref(), Some("1904-01-01"));
+        assert_eq!(day(From1900, 61.0).as_deref(), Some("1900-03-01"));
+        assert_eq!(day(From1900, 2_958_465.0).as_deref(), Some("9999-12-31"));
+        assert_eq!(day(From1904, 2_957_003.0).as_deref(), Some("9999-12-31"));
+        assert_eq!(day(From1900, 2_958_466.0), None);
+        assert_eq!(day(From1900, 60.0), None);
+        // A fraction of a day is the time: 0.3 × 24 h = 07:12.
+        assert_eq!(
+            From1900.date_time(46145.3).unwrap().to_string(),
+            "2026-05-03 07:12:00"
+        );
+    }
+
+    #[test]
+    fn serial_dates_are_read_in_the_one_system_that_fits_the_program() {
+        let opts = CsvOptions {
+            program_span: NaiveDate::from_ymd_opt(2026, 4, 1)
+                .zip(NaiveDate::from_ymd_opt(2026, 9, 30)),
+            ..CsvOptions::default()
+        };
+        let dates = |text: &str, opts: &CsvOptions| {
+            let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+            let mut d = Vec::new();
+            let t = read_table(text, &SPEC, opts, &ctx, &mut d);
+            let got = t.map(|t| {
+                let mut d2 = Vec::new();
+                let w: Vec<String> = t
+                    .rows
+                    .iter()
+                    .map(|row| {
+                        let c = Cells {
+                            table: &t,
+                            row,
+                            ctx: &ctx,
+                            opts,
+                        };
+                        let w = c.when("date", &mut d2).unwrap();
+                        format!("{} {:?}", w.date, w.time.map(|t| t.to_string()))
+                    })
+                    .collect();
+                t.describe(opts, &ctx);
+                w
+            });
+            (got, d, ctx.take_notes())
+        };
+        // 46143 is 1 May 2026 in the 1900 system (2 May 2030 in the 1904 one).
+        let (got, d, notes) = dates(
+            "date,weight,unit\n46143,72.5,kg\n46145.3,72.1,kg\n2026-05-04,72,kg\n",
+            &opts,
+        );
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(
+            got.unwrap(),
+            [
+                "2026-05-01 None",
+                "2026-05-03 Some(\"07:12:00\")",
+                "2026-05-04 None"
+            ]
+        );
+        assert!(notes[0].message.contains("1900 date system"), "{notes:?}");
+        // 44681 is 1 May 2026 in the 1904 system (30 April 2022 in the 1900 one).
+        let (got, d, _) = dates("date,weight,unit\n44681,72.5,kg\n44682,72.3,kg\n", &opts);
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01 None", "2026-05-02 None"]);
+        // Neither system places 40000 (2009 or 2013) near the program: refused at that cell.
+        let (got, d, _) = dates("date,weight,unit\n40000,72.5,kg\n40001,72,kg\n", &opts);
+        assert!(got.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(1)));
+        assert!(
+            d[0].message.contains(
+                "`40000` is 2009-07-06 in the 1900 date system, 2013-07-07 in the 1904 one"
+            ),
+            "{}",
+            d[0]
+        );
+        assert!(d[0].message.contains("neither system"), "{}", d[0]);
+        // A program of six years holds both readings of 46143: refused.
+        let long = CsvOptions {
+            program_span: NaiveDate::from_ymd_opt(2025, 1, 1)
+                .zip(NaiveDate::from_ymd_opt(2030, 12, 31)),
+            ..CsvOptions::default()
+        };
+        let (got, d, _) = dates("date,weight,unit\n46143,72.5,kg\n", &long);
+        assert!(got.is_none());
+        assert!(d[0].message.contains("both systems"), "{}", d[0]);
     }
 
     #[test]
@@ -1611,8 +2588,8 @@ mod tests {
         )
         .unwrap();
         assert_eq!(t.header_unit("weight"), Some("kg"));
-        assert!(read_table("date,Weight (st)\n", &spec, &opts, &ctx, &mut d).is_none());
-        assert!(d[0].message.contains("unit `st`"), "{}", d[0]);
+        assert!(read_table("date,Weight (oz)\n", &spec, &opts, &ctx, &mut d).is_none());
+        assert!(d[0].message.contains("unit `oz`"), "{}", d[0]);
         assert_eq!(
             header_key(" Body-Weight [KG] "),
             ("body_weight".into(), Some("kg".into()))
@@ -1743,8 +2720,10 @@ mod tests {
     #[test]
     fn bad_dates_suggest_the_format() {
         let opts = CsvOptions::default();
+        // Day first on line 2, month first on line 4: no order reads the file, so each is
+        // named with the format it fits.
         let (t, _) = read(
-            "date,weight,unit\n01/04/2026,72,kg\n2026-02-30,72,kg\n",
+            "date,weight,unit\n13/04/2026,72,kg\n2026-02-30,72,kg\n04/13/2026,72,kg\n",
             &opts,
         );
         let t = t.unwrap();
@@ -1772,6 +2751,68 @@ mod tests {
         assert_eq!(
             d[1].expected.as_deref(),
             Some("a date like `2026-04-01` (format `%Y-%m-%d`) or an ISO 8601 date-time")
+        );
+        assert!(
+            d[2].hint.as_deref().unwrap().contains("%m/%d/%Y"),
+            "{}",
+            d[2]
+        );
+    }
+
+    #[test]
+    fn numeric_dates_are_read_in_the_one_order_that_reads_them_all() {
+        let opts = CsvOptions::default();
+        let dates = |text: &str| {
+            let (t, d) = read(text, &opts);
+            let got = t.map(|t| {
+                let ctx = FileCtx::new("P1", "w.csv");
+                let mut d2 = Vec::new();
+                let v: Vec<String> = t
+                    .rows
+                    .iter()
+                    .map(|row| {
+                        let c = Cells {
+                            table: &t,
+                            row,
+                            ctx: &ctx,
+                            opts: &opts,
+                        };
+                        let w = c.when("date", &mut d2).unwrap();
+                        format!(
+                            "{}{}",
+                            w.date,
+                            w.time.map(|t| format!(" {t}")).unwrap_or_default()
+                        )
+                    })
+                    .collect();
+                assert!(d2.is_empty(), "{d2:?}");
+                v
+            });
+            (got, d)
+        };
+        // A US clinic export: 05/13 tells the order, so 05/01 is 1 May (not 5 January).
+        let (got, d) = dates("date,weight,unit\n05/01/2026,90,kg\n05/13/2026 7:10 AM,89.5,kg\n");
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01", "2026-05-13 07:10:00"]);
+        // A British spreadsheet with dashes: 13-05 tells, so 01-05 is 1 May.
+        let (got, d) = dates("date,weight,unit\n01-05-2026,90,kg\n13-05-2026,89.5,kg\n");
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01", "2026-05-13"]);
+        // Nothing tells: refused at the first date, naming both ways to settle it.
+        let (got, d) = dates("date,weight,unit\n05/01/2026,90,kg\n06/01/2026,89.5,kg\n");
+        assert!(got.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(1)));
+        assert!(
+            d[0].message.contains("day or its month comes first"),
+            "{}",
+            d[0]
+        );
+        assert!(
+            d[0].hint.as_deref().unwrap().contains("%m/%d/%Y"),
+            "{}",
+            d[0]
         );
     }
 

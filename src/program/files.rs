@@ -87,6 +87,9 @@ const MASS_UNITS: &[&str] = &[
     "lbs",
     "pound",
     "pounds",
+    "st",
+    "stone",
+    "stones",
 ];
 
 /// `weights.csv`.
@@ -107,6 +110,12 @@ pub const WEIGHTS: FileSpec = FileSpec {
         ("weight_unit", "unit"),
         ("units", "unit"),
         ("device", "source"),
+        // Phone health apps (`Weight & Body Mass (kg)`) and German-language scales
+        // (`Datum`, `Gewicht (kg)`, `Einheit`).
+        ("weight_body_mass", "weight"),
+        ("datum", "date"),
+        ("gewicht", "weight"),
+        ("einheit", "unit"),
     ],
     header_units: &[("weight", MASS_UNITS, Some("unit"))],
 };
@@ -120,6 +129,9 @@ pub const INTAKE: FileSpec = FileSpec {
         ("datetime", "date"),
         ("timestamp", "date"),
         ("calories", "kcal"),
+        ("calories_in", "kcal"),
+        ("dietary_energy", "kcal"),
+        ("datum", "date"),
         ("energy", "kcal"),
         ("energy_kcal", "kcal"),
         ("carbs", "carbs_g"),

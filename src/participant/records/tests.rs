@@ -380,6 +380,124 @@ fn stones_are_read_as_fourteen_pounds() {
     assert!((w[1].weight.kg() - 14.4 * 14.0 * 0.453_592_37).abs() < 1e-9);
 }
 
+fn weights_or_error(text: &str) -> (Option<Vec<WeighIn>>, Vec<Diagnostic>) {
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    (w, diags)
+}
+
+/// Scales and apps write the unit in the weight cell, with no unit column; every such file
+/// was refused for a missing `unit` column.
+#[test]
+fn units_written_in_the_weight_cells_are_read() {
+    let (w, diags) = weights(
+        "Date,Weight\n2026-04-01,72.5 kg\n2026-04-02,160.4 lb\n2026-04-03,160 lbs\n2026-04-04,11.5 st\n2026-04-05,72.4kg\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kg: Vec<f64> = w.iter().map(|x| x.weight.kg()).collect();
+    // 1 lb = 0.45359237 kg exactly (international yard and pound agreement, 1959);
+    // 1 st = 14 lb.
+    let want = [
+        72.5,
+        160.4 * 0.453_592_37,
+        160.0 * 0.453_592_37,
+        11.5 * 14.0 * 0.453_592_37,
+        72.4,
+    ];
+    assert_eq!(kg.len(), want.len());
+    for (a, b) in kg.iter().zip(want) {
+        assert!((a - b).abs() < 1e-9, "{kg:?}");
+    }
+    // A unit in the cell that agrees with the unit column or the header is fine.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,72.5 kg,kg\n");
+    assert!(diags.is_empty() && w.len() == 1, "{diags:#?}");
+    let (w, diags) = weights("Date,Weight (lb)\n2026-04-01,160 lbs\n");
+    assert!(diags.is_empty() && w.len() == 1, "{diags:#?}");
+    // A bare number among them has no unit: that row alone is dropped, named.
+    let (w, diags) = weights("Date,Weight\n2026-04-01,72.5 kg\n2026-04-02,72.3\n");
+    assert_eq!(w.len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(2)));
+    assert!(diags[0].message.contains("no unit"), "{}", diags[0]);
+    // Without a unit anywhere the file misses its unit column, as before.
+    let (w, diags) = weights_or_error("Date,Weight\n2026-04-01,72.5\n");
+    assert!(w.is_none());
+    assert!(
+        diags[0].message.contains("missing required column `unit`"),
+        "{}",
+        diags[0]
+    );
+}
+
+/// A unit in the cell that the unit column or header contradicts: which one is right cannot be
+/// known, so the file is refused, at the first such cell.
+#[test]
+fn a_unit_in_the_cell_that_disagrees_with_the_file_refuses_it() {
+    let (w, diags) = weights_or_error(
+        "date,weight,unit\n2026-04-01,72.5,kg\n2026-04-02,160.4 lb,kg\n2026-04-03,72.3,kg\n",
+    );
+    assert!(w.is_none());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let e = &diags[0];
+    assert_eq!(e.severity, Severity::Error);
+    assert_eq!(e.file, "participants/P1/weights.csv");
+    assert_eq!((e.line, e.column), (Some(3), Some(2)));
+    assert!(
+        e.message
+            .contains("`160.4 lb` is written in lb but the `unit` column says `kg`"),
+        "{e}"
+    );
+    assert_eq!(e.found.as_deref(), Some("`160.4 lb`"));
+    let (w, diags) = weights_or_error("Date,Weight (kg)\n2026-04-01,14 st 2 lb\n");
+    assert!(w.is_none());
+    assert!(
+        diags[0]
+            .message
+            .contains("written in st but the header `Weight (kg)` says kg"),
+        "{}",
+        diags[0]
+    );
+}
+
+/// Stones and pounds as British scales and people write them: 14 st 2 lb is 198 lb exactly.
+#[test]
+fn stones_and_pounds_are_read_exactly() {
+    let (w, diags) = weights(
+        "Date,Weight\n2026-04-01,14 st 2 lb\n2026-04-02,14st 2lb\n2026-04-03,14 st 2\n2026-04-04,14 st 0.5 lb\n2026-04-05,14 st 14 lb\n",
+    );
+    assert_eq!(w.len(), 4, "{diags:#?}");
+    // 198 lb × 0.45359237 kg/lb (exact, 1959 agreement) = 89.81128926 kg.
+    for x in &w[..3] {
+        assert!(
+            (x.weight.kg() - 89.811_289_26).abs() < 1e-9,
+            "{}",
+            x.weight.kg()
+        );
+    }
+    assert!((w[3].weight.kg() - 196.5 * 0.453_592_37).abs() < 1e-9);
+    // 14 pounds is a stone: not a way of writing a weight.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(6), Some(2)));
+    assert!(
+        diags[0].message.contains("stones and pounds"),
+        "{}",
+        diags[0]
+    );
+    // Under a stones unit column they agree.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,14 st 2 lb,st\n");
+    assert!(diags.is_empty() && w.len() == 1, "{diags:#?}");
+    // `Weight (st)` was refused as an unknown header unit.
+    let (w, diags) = weights("Date,Weight (st)\n2026-04-01,14.5\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert!((w[0].weight.kg() - 203.0 * 0.453_592_37).abs() < 1e-9);
+}
+
 #[test]
 fn bom_and_crlf_are_accepted_silently() {
     let (w, diags) =
@@ -504,6 +622,32 @@ fn an_energy_column_without_a_unit_holding_kilojoules_is_refused() {
     let (v, d) = parse("date,Energy\n2026-04-01,1800\n2026-04-02,2100\n2026-04-03,1900\n");
     assert!(d.is_empty(), "{d:#?}");
     assert_eq!(v.unwrap().len(), 3);
+    // A phone health app's `Dietary Energy` (read as kcal now) is checked the same way.
+    let (v, d) = parse(&kj.replace("Energy", "Dietary Energy"));
+    assert!(v.is_none());
+    assert!(
+        d[0].message.contains("`Dietary Energy` has no unit"),
+        "{}",
+        d[0]
+    );
+}
+
+/// Headers of phone health apps, trackers and German-language scales (each file was refused
+/// for a missing column).
+#[test]
+fn headers_of_health_apps_and_german_scales_are_read() {
+    let (w, diags) = weights("Date/Time,Weight & Body Mass (kg)\n2026-04-01 07:12:00 +0200,72.5\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(
+        (w[0].weight.kg(), w[0].time.as_deref()),
+        (72.5, Some("07:12"))
+    );
+    let (w, diags) = weights("Datum;Gewicht;Einheit\n01.04.2026;72,5;kg\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!((w[0].date, w[0].weight.kg()), (d(2026, 4, 1), 72.5));
+    let (v, diags) = intake("Date,Calories In\n2026-04-01,\"1,850\"\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].kcal, 1850.0);
 }
 
 #[test]
@@ -841,4 +985,360 @@ fn unknown_activities_past_the_first_twenty_labels_are_counted_in_one_warning() 
         "6 more unknown activities in 6 rows (first at line 21); without a MET value these rows are dropped"
     );
     assert_eq!((diags[20].line, diags[20].column), (Some(21), Some(2)));
+}
+
+fn activity_or_error(text: &str) -> (Option<Vec<ActivityEntry>>, Vec<Diagnostic>) {
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    );
+    (a, diags)
+}
+
+/// Fitness apps write durations as clock times (`00:45:00`) or with units (`45 min`): every
+/// such row was dropped as "not a number".
+#[test]
+fn durations_written_as_clock_times_or_with_units_are_read() {
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration\n2026-04-01,brisk walk,00:45:00\n2026-04-02,\"Cycling, moderate\",1:10:00\n2026-04-03,brisk walk,45 min\n2026-04-04,jog,1 h 15 min\n2026-04-05,Yoga,1h\n2026-04-06,Yoga,30\n2026-04-07,Yoga,45:00\n",
+    );
+    let a = a.unwrap();
+    let minutes: Vec<f64> = a.iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [45.0, 70.0, 45.0, 75.0, 60.0, 30.0]);
+    // `45:00` is 45 minutes or 45 hours: dropped, named.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(8), Some(3)));
+    assert!(
+        diags[0]
+            .message
+            .contains("minutes:seconds or hours:minutes"),
+        "{}",
+        diags[0]
+    );
+    // A clock duration under `Duration (h)` is still its own; a plain number is hours.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h)\n2026-04-01,Yoga,0:30:00\n2026-04-02,Yoga,1.5\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [30.0, 90.0]);
+    // A unit in the cell that the header contradicts refuses the file at that cell.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h)\n2026-04-01,Yoga,1\n2026-04-02,Yoga,45 min\n",
+    );
+    assert!(a.is_none());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].severity, Severity::Error);
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(3)));
+    assert!(
+        diags[0]
+            .message
+            .contains("`45 min` is written in min but the header `Duration (h)` says h"),
+        "{}",
+        diags[0]
+    );
+}
+
+/// A food diary prints a `Total` row under each day's meals: summed with them, the day was
+/// taken at twice its intake, without a word.
+#[test]
+fn a_food_diarys_total_rows_are_not_added_to_the_meals() {
+    let c = ctx("intake.csv");
+    let mut diags = Vec::new();
+    let v = parse_intake(
+        "Date,Meal,Calories,Protein (g)\n2026-04-01,Breakfast,420,20\n2026-04-01,Lunch,\"1,020\",45\n2026-04-01,TOTAL:,\"1,440\",65\n2026-04-02,Dinner,700,42\n2026-04-02,Total,900,50\n2026-04-03,Total,1800,70\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    // 1 April: the meals (1,440 kcal, as the total says); 2 April: total and meals disagree,
+    // dropped; 3 April: a total alone is the day.
+    let days: Vec<(NaiveDate, f64, Option<f64>)> =
+        v.iter().map(|i| (i.date, i.kcal, i.protein_g)).collect();
+    assert_eq!(
+        days,
+        [
+            (d(2026, 4, 1), 1440.0, Some(65.0)),
+            (d(2026, 4, 3), 1800.0, Some(70.0))
+        ]
+    );
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+    // The extra `Meal` column, then the day whose total disagrees.
+    assert!(
+        diags[0].message.contains("extra column `Meal`"),
+        "{}",
+        diags[0]
+    );
+    assert_eq!((diags[1].line, diags[1].column), (Some(6), Some(3)));
+    assert!(
+        diags[1]
+            .message
+            .contains("900 kcal are not the sum of the day's other rows (700 kcal)"),
+        "{}",
+        diags[1]
+    );
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("1 row giving a day's total")),
+        "{notes:?}"
+    );
+}
+
+/// Spreadsheet summary rows (`Average`, `Total` where the date would be) are no measurements:
+/// left out with a note, not a warning per row.
+#[test]
+fn summary_rows_are_left_out_with_a_note() {
+    let c = ctx("weights.csv");
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date,weight,unit\n\n2026-04-01,72.5,kg\n2026-04-02,72.3,kg\n\nAverage,72.4,kg\nMAX:,72.5,kg\nnot a date,72,kg\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(w.len(), 2);
+    // Only the row that is neither a date nor a summary is warned about.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(8));
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("2 rows summing up the others (`Average` on line 6) left out")),
+        "{notes:?}"
+    );
+}
+
+/// A summary row without a date (`,Total,120` under an activity log) is left out with the
+/// note, not warned about as a row with an empty date; a time of day may be 12-hour.
+#[test]
+fn a_summary_row_without_a_date_is_left_out_and_times_may_be_twelve_hour() {
+    let c = ctx("activity.csv");
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        "date,activity,minutes\n2026-04-01,brisk walk,30\n2026-04-02,Yoga,45\n,Total,75\n,brisk walk,20\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(
+        a.iter().map(|x| x.minutes).collect::<Vec<_>>(),
+        [30.0, 45.0]
+    );
+    // The dateless row that is no total is still named.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(5));
+    assert!(diags[0].message.contains("`date` is empty"), "{}", diags[0]);
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("1 row summing up the others (`Total` on line 4)")),
+        "{notes:?}"
+    );
+    let (w, diags) =
+        weights("date,time,weight,unit\n2026-04-01,7:12 AM,72.5,kg\n2026-04-01,7:40 PM,73,kg\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(
+        w.iter().map(|x| x.time.as_deref()).collect::<Vec<_>>(),
+        [Some("07:12"), Some("19:40")]
+    );
+}
+
+/// Diaries print the unit with the energy and grams with the macros; every such row was
+/// dropped as not a number (and the macros ignored).
+#[test]
+fn energy_and_grams_written_with_their_units_are_read() {
+    let (v, diags) = intake(
+        "date,kcal,protein_g\n2026-04-01,\"1,850 kcal\",72 g\n2026-04-02,2100 Cal,80\n2026-04-03,8368 kJ,85.5 g\n2026-04-04,n/a,1\n",
+    );
+    let got: Vec<(f64, Option<f64>)> = v.iter().map(|i| (i.kcal, i.protein_g)).collect();
+    // 8368 kJ / 4.184 kJ/kcal (thermochemical calorie) = 2000 kcal.
+    assert_eq!(
+        got,
+        [
+            (1850.0, Some(72.0)),
+            (2100.0, Some(80.0)),
+            (2000.0, Some(85.5))
+        ]
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(diags[0].message.contains("not a number"), "{}", diags[0]);
+    // A unit in the cell that the header contradicts refuses the file at that cell.
+    let mut diags = Vec::new();
+    let v = parse_intake(
+        "date,Energy (kJ)\n2026-04-01,8000\n2026-04-02,1900 kcal\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(v.is_none());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(2)));
+    assert!(
+        diags[0]
+            .message
+            .contains("`1900 kcal` is written in kcal but the header `Energy (kJ)` says kJ"),
+        "{}",
+        diags[0]
+    );
+}
+
+/// `check` states what was recognised in the cells, once per file.
+#[test]
+fn forms_recognised_in_the_cells_are_stated_once_per_file() {
+    let notes =
+        |text: &str,
+         parse: fn(&str, &CsvOptions, &FileCtx, &Window, &mut Vec<Diagnostic>) -> bool| {
+            let c = ctx("f.csv");
+            let mut diags = Vec::new();
+            assert!(
+                parse(text, &CsvOptions::default(), &c, &window(), &mut diags),
+                "{diags:#?}"
+            );
+            c.take_notes()
+                .into_iter()
+                .map(|n| n.message)
+                .collect::<Vec<_>>()
+                .join(" | ")
+        };
+    let w = |t: &str, o: &CsvOptions, c: &FileCtx, w: &Window, d: &mut Vec<Diagnostic>| {
+        parse_weights(t, o, c, w, d).is_some()
+    };
+    let a = |t: &str, o: &CsvOptions, c: &FileCtx, w: &Window, d: &mut Vec<Diagnostic>| {
+        parse_activity(t, o, c, w, d).is_some()
+    };
+    let n = notes(
+        "Date,Weight\n\"May 1, 2026\",72.5 kg\n\"May 2, 2026\",14 st 2 lb\n01.05.2026 7:10 AM,72 kg\n",
+        w,
+    );
+    assert!(
+        n.contains("weights with their unit in the cell (`72.5 kg`)"),
+        "{n}"
+    );
+    assert!(
+        n.contains("stones and pounds (`14 st 2 lb` = 198 lb)"),
+        "{n}"
+    );
+    assert!(n.contains("dates with the month's name"), "{n}");
+    assert!(n.contains("dotted dates read day first"), "{n}");
+    let n = notes(
+        "date,activity,minutes\n2026-04-01,Yoga,0:45:00\n2026-04-02,Yoga,45 min\n",
+        a,
+    );
+    assert!(n.contains("durations as h:mm:ss"), "{n}");
+    assert!(n.contains("durations with their units"), "{n}");
+    assert!(!n.contains("month's name"), "{n}");
+}
+
+/// A smart scale app's export: a date row (` May 1, 2026`) above that day's measurements,
+/// which give only the time of day, and weights with their unit; a delimiter ends each line.
+/// The file was refused for missing `date` and `unit` columns.
+#[test]
+fn dates_in_rows_of_their_own_above_the_measurements_are_read() {
+    let (w, diags) = weights(
+        "Time,Weight,BMI,\n\" May 2, 2026\",\n\"7:05 AM\",72.3 kg,23.4,\n\" May 1, 2026\",\n\"7:12 AM\",72.5 kg,23.5,\n\"9:40 PM\",72.5 kg,23.5,\n",
+    );
+    let got: Vec<(NaiveDate, Option<&str>, f64)> = w
+        .iter()
+        .map(|x| (x.date, x.time.as_deref(), x.weight.kg()))
+        .collect();
+    // The same weight at another time of another day is no duplicate.
+    assert_eq!(
+        got,
+        [
+            (d(2026, 5, 1), Some("07:12"), 72.5),
+            (d(2026, 5, 1), Some("21:40"), 72.5),
+            (d(2026, 5, 2), Some("07:05"), 72.3)
+        ]
+    );
+    // Only the `BMI` column is named (the header's final delimiter names none).
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("extra column `BMI`"),
+        "{}",
+        diags[0]
+    );
+    // A measurement before any date row has no date: dropped, named at the time column.
+    let (w, diags) = weights("Time,Weight\n7:00 AM,72 kg\n2026-05-01,\n7:12 AM,72.5 kg\n");
+    assert_eq!(w.len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(1)));
+    assert!(diags[0].message.contains("`date` is empty"), "{}", diags[0]);
+    // Without any date row the date column is missing, as before.
+    let (w, diags) = weights_or_error("Time,Weight\n7:00 AM,72 kg\n");
+    assert!(w.is_none());
+    assert!(
+        diags[0].message.contains("missing required column `date`"),
+        "{}",
+        diags[0]
+    );
+}
+
+/// An activity log's `Total` row with a `met` value was read as one more activity (the day's
+/// minutes counted twice).
+#[test]
+fn an_activity_logs_total_row_is_not_an_activity() {
+    let c = ctx("activity.csv");
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        "date,activity,minutes,met\n2026-04-01,brisk walk,30,4.3\n2026-04-01,Yoga,20,2.5\n2026-04-01,TOTAL,50,3.5\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(a.iter().map(|x| x.minutes).sum::<f64>(), 50.0);
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("1 row summing up the others (`TOTAL` on line 4)")),
+        "{notes:?}"
+    );
+}
+
+/// A summary row with a date, marked in a column we do not read (`Average` in `Notes`, `Max`
+/// in `Meal`), was read as one more weigh-in, meal or activity.
+#[test]
+fn summary_rows_marked_in_another_column_are_not_measurements() {
+    let (w, diags) = weights(
+        "date,weight,unit,notes\n2026-04-01,72.5,kg,\n2026-04-02,72.1,kg,after run\n2026-04-30,72.3,kg,Average\n",
+    );
+    assert_eq!(
+        w.iter().map(|x| x.weight.kg()).collect::<Vec<_>>(),
+        [72.5, 72.1]
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("extra column `notes`"),
+        "{}",
+        diags[0]
+    );
+    let (v, _) = intake(
+        "Date,Meal,Calories\n2026-04-01,Breakfast,400\n2026-04-01,Lunch,800\n2026-04-01,Average,600\n",
+    );
+    assert_eq!(v.iter().map(|i| i.kcal).collect::<Vec<_>>(), [1200.0]);
+    let (a, _) = activity_or_error(
+        "date,activity,minutes,notes\n2026-04-01,brisk walk,30,\n2026-04-01,brisk walk,30,Max\n",
+    );
+    assert_eq!(
+        a.unwrap().iter().map(|x| x.minutes).collect::<Vec<_>>(),
+        [30.0]
+    );
 }

@@ -1,0 +1,331 @@
+//! A corpus of export shapes (`tests/fixtures/export-shapes/`, fictional data): the files that
+//! smart scales, phone health apps, spreadsheets, food diaries and clinic systems write. Each
+//! file becomes one participant's `weights.csv`, `intake.csv` or `activity.csv` in a program
+//! running from 2026-04-01 to 2026-09-30, and the test counts the rows kept against the rows
+//! that should be kept, then checks the values read. A file that cannot be read without a
+//! guess must be refused with an error (file, line, column), never read silently.
+
+use crate::harness::fixture;
+use chrono::NaiveDate;
+use cohortpress::diag::{Diagnostic, Severity};
+use std::collections::BTreeMap;
+use std::fs;
+
+/// (fixture file, rows or days that should be kept, whether the file must be refused).
+/// For intake files the count is of days (rows of a day are summed).
+const SHAPES: &[(&str, usize, bool)] = &[
+    ("weights-scale-kg-in-cell.csv", 4, false),
+    ("weights-app-lb-in-cell.csv", 3, false),
+    ("weights-stones-and-pounds.csv", 5, false),
+    ("weights-unit-column-disagrees.csv", 0, true),
+    ("weights-header-unit-brackets.csv", 2, false),
+    ("weights-header-unit-stones.csv", 2, false),
+    ("weights-excel-serial-1900.csv", 3, false),
+    ("weights-excel-serial-1904.csv", 2, false),
+    ("weights-excel-serial-unplaceable.csv", 0, true),
+    ("weights-health-app-offsets.csv", 3, false),
+    ("weights-month-name-dates.csv", 3, false),
+    ("weights-day-month-name-dates.csv", 3, false),
+    ("weights-german-scale.csv", 3, false),
+    ("weights-summary-rows.csv", 2, false),
+    ("weights-clinic-quoted-multiline.csv", 3, false),
+    ("weights-clinic-us-dates.csv", 3, false),
+    ("weights-scale-app-date-rows.csv", 3, false),
+    ("weights-ambiguous-slash-dates.csv", 0, true),
+    ("intake-food-diary-per-meal.csv", 2, false),
+    ("intake-food-diary-with-daily-totals.csv", 2, false),
+    ("intake-title-line.csv", 2, false),
+    ("intake-kj-semicolon-bom.csv", 2, false),
+    ("intake-diary-units-in-cells.csv", 2, false),
+    ("activity-hms-durations.csv", 3, false),
+    ("activity-minutes-in-cell.csv", 4, false),
+    ("activity-start-times.csv", 3, false),
+];
+
+const PROGRAM: &str = "format_version: 1
+program: { id: shapes-2026, title: \"Export shapes\", start: 2026-04-01, end: 2026-09-30 }
+units: metric
+modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
+";
+
+/// What was read from one shape.
+#[derive(Debug, Default)]
+struct Got {
+    /// (day, time, kg) per weigh-in.
+    weights: Vec<(NaiveDate, Option<String>, f64)>,
+    /// (day, kcal, protein g) per intake day.
+    intake: Vec<(NaiveDate, f64, Option<f64>)>,
+    /// (day, activity label, minutes) per activity row.
+    activity: Vec<(NaiveDate, String, f64)>,
+    /// Problems with the file.
+    diags: Vec<Diagnostic>,
+}
+
+impl Got {
+    fn kept(&self) -> usize {
+        self.weights.len() + self.intake.len() + self.activity.len()
+    }
+    fn errors(&self) -> Vec<&Diagnostic> {
+        self.diags
+            .iter()
+            .filter(|d| d.severity == Severity::Error)
+            .collect()
+    }
+}
+
+fn read_corpus() -> BTreeMap<&'static str, Got> {
+    let tmp = tempfile::Builder::new()
+        .prefix("cohortpress-shapes-")
+        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
+        .unwrap();
+    let dir = tmp.path().join("program");
+    fs::create_dir_all(dir.join("participants")).unwrap();
+    fs::write(dir.join("program.yaml"), PROGRAM).unwrap();
+    let mut ids = BTreeMap::new();
+    for (i, (file, _, _)) in SHAPES.iter().enumerate() {
+        let id = format!("XS-{:02}", i + 1);
+        let p = dir.join("participants").join(&id);
+        fs::create_dir_all(&p).unwrap();
+        fs::write(
+            p.join("profile.yaml"),
+            format!(
+                "id: {id}\nsex: female\nbirth_date: 1980-06-01\nheight: 168 cm\nenrolled: 2026-04-01\n"
+            ),
+        )
+        .unwrap();
+        let kind = file.split('-').next().unwrap();
+        fs::copy(
+            fixture("export-shapes").join(file),
+            p.join(format!("{kind}.csv")),
+        )
+        .unwrap();
+        ids.insert(id, *file);
+    }
+    let as_of = NaiveDate::from_ymd_opt(2026, 10, 15).unwrap();
+    let report = cohortpress::check::check_program(&dir, as_of);
+    assert!(report.program.is_ok(), "{:#?}", report.program.err());
+    let mut out = BTreeMap::new();
+    for p in &report.participants {
+        let file = ids[&p.id];
+        let mut got = Got {
+            diags: p.diagnostics.clone(),
+            ..Got::default()
+        };
+        let data = p
+            .data
+            .as_ref()
+            .unwrap_or_else(|| panic!("{file}: {:#?}", p.diagnostics));
+        got.weights = data
+            .weights
+            .iter()
+            .map(|w| (w.date, w.time.clone(), w.weight.kg()))
+            .collect();
+        got.intake = data
+            .intake
+            .iter()
+            .map(|d| (d.date, d.kcal, d.protein_g))
+            .collect();
+        got.activity = data
+            .activity
+            .iter()
+            .map(|a| (a.date, a.activity.clone(), a.minutes))
+            .collect();
+        out.insert(file, got);
+    }
+    out
+}
+
+fn d(m: u32, day: u32) -> NaiveDate {
+    NaiveDate::from_ymd_opt(2026, m, day).unwrap()
+}
+
+fn close(a: f64, b: f64) -> bool {
+    (a - b).abs() < 1e-9
+}
+
+#[test]
+fn every_export_shape_keeps_the_rows_it_should_and_refuses_what_it_cannot_read() {
+    let got = read_corpus();
+    // The table for the report: kept against should-keep, with the problems found.
+    println!("| shape | kept | should keep | errors | warnings |");
+    println!("|---|---|---|---|---|");
+    for (file, should, _) in SHAPES {
+        let g = &got[file];
+        println!(
+            "| {file} | {} | {should} | {} | {} |",
+            g.kept(),
+            g.errors().len(),
+            g.diags.len() - g.errors().len()
+        );
+    }
+    for (file, should, refused) in SHAPES {
+        let g = &got[file];
+        assert_eq!(g.kept(), *should, "{file}: {:#?}", g.diags);
+        if *refused {
+            assert_eq!(g.errors().len(), 1, "{file}: {:#?}", g.diags);
+            let e = g.errors()[0];
+            assert!(e.line.is_some() && e.column.is_some(), "{file}: {e}");
+        } else {
+            // Columns we do not read (`Meal`, `Notes`, `Source` of a kind we have) are named;
+            // nothing else is wrong with these files.
+            let other: Vec<_> = g
+                .diags
+                .iter()
+                .filter(|d| !d.message.starts_with("extra column"))
+                .collect();
+            assert!(other.is_empty(), "{file}: {other:#?}");
+        }
+    }
+}
+
+#[test]
+fn the_values_read_from_every_export_shape_are_the_ones_written() {
+    let got = read_corpus();
+    let kg = |file: &str| -> Vec<f64> { got[file].weights.iter().map(|w| w.2).collect() };
+    let days = |file: &str| -> Vec<NaiveDate> { got[file].weights.iter().map(|w| w.0).collect() };
+    // 1 lb = 0.45359237 kg exactly (international yard and pound agreement, 1959); 1 st = 14 lb.
+    const LB: f64 = 0.453_592_37;
+    let same = |a: Vec<f64>, b: &[f64]| {
+        assert_eq!(a.len(), b.len(), "{a:?} vs {b:?}");
+        assert!(
+            a.iter().zip(b).all(|(x, y)| close(*x, *y)),
+            "{a:?} vs {b:?}"
+        );
+    };
+    same(
+        kg("weights-scale-kg-in-cell.csv"),
+        &[72.5, 72.3, 72.4, 72.2],
+    );
+    same(
+        kg("weights-app-lb-in-cell.csv"),
+        &[160.4 * LB, 160.0 * LB, 159.8 * LB],
+    );
+    same(
+        kg("weights-stones-and-pounds.csv"),
+        &[
+            198.0 * LB,
+            197.0 * LB,
+            197.0 * LB,
+            196.5 * LB,
+            14.1 * 14.0 * LB,
+        ],
+    );
+    same(
+        kg("weights-header-unit-brackets.csv"),
+        &[160.4 * LB, 160.0 * LB],
+    );
+    same(
+        kg("weights-header-unit-stones.csv"),
+        &[14.1 * 14.0 * LB, 14.0 * 14.0 * LB],
+    );
+    // Serial dates: 46143 is 1 May 2026 from 1900; 44681 is 1 May 2026 from 1904;
+    // .3 of a day is 07:12.
+    assert_eq!(
+        days("weights-excel-serial-1900.csv"),
+        [d(5, 1), d(5, 2), d(5, 3)]
+    );
+    assert_eq!(
+        got["weights-excel-serial-1900.csv"].weights[2].1.as_deref(),
+        Some("07:12")
+    );
+    assert_eq!(days("weights-excel-serial-1904.csv"), [d(5, 1), d(5, 2)]);
+    // Two weigh-ins on 1 May (morning and evening), local times as written.
+    let app = &got["weights-health-app-offsets.csv"].weights;
+    assert_eq!(
+        app.iter()
+            .map(|w| (w.0, w.1.as_deref()))
+            .collect::<Vec<_>>(),
+        [
+            (d(5, 1), Some("07:12")),
+            (d(5, 1), Some("19:40")),
+            (d(5, 2), Some("07:05"))
+        ]
+    );
+    same(kg("weights-health-app-offsets.csv"), &[72.5, 73.1, 72.4]);
+    assert_eq!(
+        days("weights-month-name-dates.csv"),
+        [d(5, 1), d(5, 2), d(5, 3)]
+    );
+    assert_eq!(
+        days("weights-day-month-name-dates.csv"),
+        [d(5, 1), d(5, 2), d(6, 3)]
+    );
+    assert_eq!(
+        days("weights-german-scale.csv"),
+        [d(5, 1), d(5, 2), d(5, 13)]
+    );
+    same(kg("weights-german-scale.csv"), &[72.5, 72.3, 72.0]);
+    same(kg("weights-summary-rows.csv"), &[72.5, 72.3]);
+    same(
+        kg("weights-clinic-quoted-multiline.csv"),
+        &[198.2 * LB, 196.9 * LB, 195.5 * LB],
+    );
+    // Date rows above the measurements, 12-hour times, units in the cells.
+    let rows = &got["weights-scale-app-date-rows.csv"].weights;
+    assert_eq!(
+        rows.iter()
+            .map(|w| (w.0, w.1.as_deref()))
+            .collect::<Vec<_>>(),
+        [
+            (d(5, 1), Some("07:12")),
+            (d(5, 1), Some("21:40")),
+            (d(5, 2), Some("07:05"))
+        ]
+    );
+    same(kg("weights-scale-app-date-rows.csv"), &[72.5, 73.1, 72.3]);
+    // Month first, as 05/18 shows: 05/04 is 4 May.
+    assert_eq!(
+        days("weights-clinic-us-dates.csv"),
+        [d(5, 4), d(5, 18), d(6, 1)]
+    );
+    // The refusals name the cell and both readings.
+    let e = got["weights-unit-column-disagrees.csv"].errors()[0];
+    assert_eq!((e.line, e.column), (Some(3), Some(2)));
+    assert_eq!(e.found.as_deref(), Some("`160.4 lb`"));
+    let e = got["weights-ambiguous-slash-dates.csv"].errors()[0];
+    assert_eq!((e.line, e.column), (Some(2), Some(1)));
+    assert_eq!(e.found.as_deref(), Some("`04/05/2026`"));
+    let e = got["weights-excel-serial-unplaceable.csv"].errors()[0];
+    assert_eq!((e.line, e.column), (Some(2), Some(1)));
+    assert!(
+        e.message.contains("2009-07-06") && e.message.contains("2013-07-07"),
+        "{e}"
+    );
+
+    // Intake: meals summed per day; the diary's Total rows not added to them.
+    let intake = |file: &str| got[file].intake.clone();
+    let meals = vec![
+        (d(5, 1), 2090.0, Some(105.0)),
+        (d(5, 2), 1080.0, Some(60.0)),
+    ];
+    assert_eq!(intake("intake-food-diary-per-meal.csv"), meals);
+    assert_eq!(intake("intake-food-diary-with-daily-totals.csv"), meals);
+    assert_eq!(
+        intake("intake-title-line.csv"),
+        [(d(5, 1), 1850.0, None), (d(5, 2), 2010.0, None)]
+    );
+    assert_eq!(
+        intake("intake-diary-units-in-cells.csv"),
+        [(d(5, 1), 1440.0, Some(65.0)), (d(5, 2), 700.0, Some(42.0))]
+    );
+    // kJ / 4.184 = kcal (thermochemical calorie); `7 950` and `8.368` group thousands.
+    let kj = intake("intake-kj-semicolon-bom.csv");
+    assert!(
+        close(kj[0].1, 7950.0 / 4.184) && close(kj[1].1, 8368.0 / 4.184),
+        "{kj:?}"
+    );
+    assert_eq!((kj[0].2, kj[1].2), (Some(80.0), Some(85.5)));
+
+    // Activity durations: clock times, units in the cell, start times.
+    let minutes = |file: &str| -> Vec<f64> { got[file].activity.iter().map(|a| a.2).collect() };
+    assert_eq!(minutes("activity-hms-durations.csv"), [45.0, 70.0, 30.0]);
+    assert_eq!(
+        minutes("activity-minutes-in-cell.csv"),
+        [45.0, 30.0, 75.0, 60.0]
+    );
+    assert_eq!(minutes("activity-start-times.csv"), [30.0, 45.0, 32.0]);
+    assert_eq!(
+        got["activity-hms-durations.csv"].activity[1].1,
+        "Cycling, moderate"
+    );
+}
