@@ -861,21 +861,11 @@ fn compute_trend(settings: &Settings, to: NaiveDate, data: &ParticipantData) -> 
         "Days since the last weigh-in",
     );
 
-    let mut status = window.map_or(Status::InsufficientData, |w| status_code(&w, e + 1 >= l));
-    // A plateau found on the whole trajectory that is still going at the last weigh-in is the
-    // current status unless the last window shows a clear loss or rise.
     let current_plateau = periods_now
         .iter()
         .rev()
         .find(|p| p.kind == WindowKind::Plateau && p.end + 3 >= last_idx);
-    if current_plateau.is_some()
-        && matches!(
-            status,
-            Status::Stable | Status::Unclear | Status::InsufficientData
-        )
-    {
-        status = Status::Plateau;
-    }
+    let status = current_status(window.as_ref(), e + 1 >= l, current_plateau.is_some());
     out.push_text(names::STATUS, status.as_str(), status.label());
     out.push_scalar(
         names::PLATEAU_CONFIDENCE,
@@ -1046,6 +1036,34 @@ fn status_code(w: &plateau::WindowVerdict, full_window: bool) -> Status {
     }
 }
 
+/// The status of the last window, or `plateau` when a plateau found on the whole trajectory
+/// (judged on tissue: the weigh-ins less the fast weight the food log implies) is still going at
+/// the last weigh-in and the last window shows no clear loss or rise. The weigh-ins themselves
+/// must not contradict it: a window whose mean slope lies beyond the band (a rise or fall of more
+/// than δ a week on the scale, as the report's "recent rate" prints it) is not "held steady",
+/// even when too few weigh-ins or too wide an interval keep the window from a verdict of its
+/// own. Sample seed 7, SG-264, September: "held steady … (a plateau)" above a recent rate of
+/// +0.42 kg/week (95 % 0.06 to 0.77), which also kept a confirmed regain from being met as one.
+fn current_status(
+    window: Option<&plateau::WindowVerdict>,
+    full_window: bool,
+    plateau_now: bool,
+) -> Status {
+    let status = window.map_or(Status::InsufficientData, |w| status_code(w, full_window));
+    let scale_agrees = window.is_none_or(|w| !w.slope.is_finite() || w.slope.abs() <= w.delta);
+    if plateau_now
+        && scale_agrees
+        && matches!(
+            status,
+            Status::Stable | Status::Unclear | Status::InsufficientData
+        )
+    {
+        Status::Plateau
+    } else {
+        status
+    }
+}
+
 fn weigh_in_series(data: &ParticipantData, to: NaiveDate, skipped: &[NaiveDate]) -> Series {
     Series {
         name: names::WEIGH_INS.into(),
@@ -1146,5 +1164,52 @@ mod tests {
         let w = verdict(WindowKind::Plateau, -0.01, -0.02, 0.0);
         assert_eq!(status_code(&w, true), Status::Plateau);
         assert_eq!(status_code(&w, false), Status::InsufficientData);
+    }
+
+    #[test]
+    fn a_plateau_found_on_tissue_is_not_the_status_while_the_scale_moves_beyond_the_band() {
+        // Too few weigh-ins for a verdict of the window's own, with its mean slope +0.42 kg/week
+        // at a band of ±0.28 kg/week (sample seed 7, SG-264): not "held steady".
+        let rising = verdict(
+            WindowKind::InsufficientData,
+            0.42 / 7.0,
+            0.06 / 7.0,
+            0.77 / 7.0,
+        );
+        let rising = WindowVerdict {
+            delta: 0.28 / 7.0,
+            ..rising
+        };
+        assert_eq!(
+            current_status(Some(&rising), true, true),
+            Status::InsufficientData
+        );
+        // The same on a fall (SG-107: −0.32 kg/week at a band of ±0.28).
+        let falling = WindowVerdict {
+            slope: -0.32 / 7.0,
+            lower: -0.44 / 7.0,
+            upper: -0.20 / 7.0,
+            ..rising
+        };
+        assert_eq!(
+            current_status(Some(&falling), true, true),
+            Status::InsufficientData
+        );
+        // A scale slope inside the band keeps the plateau found on tissue.
+        let flat = WindowVerdict {
+            slope: 0.05 / 7.0,
+            lower: -0.3 / 7.0,
+            upper: 0.4 / 7.0,
+            ..rising
+        };
+        assert_eq!(current_status(Some(&flat), true, true), Status::Plateau);
+        assert_eq!(
+            current_status(Some(&flat), true, false),
+            Status::InsufficientData
+        );
+        // A clear loss stays a loss.
+        let loss = verdict(WindowKind::Loss, -0.05, -0.06, -0.04);
+        assert_eq!(current_status(Some(&loss), true, true), Status::Losing);
+        assert_eq!(current_status(None, true, true), Status::Plateau);
     }
 }
