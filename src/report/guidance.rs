@@ -770,7 +770,13 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     g
 }
 
-fn maintain_sentence(f: &Facts, floor: f64, losing: bool, t: &Thresholds) -> Option<String> {
+fn maintain_sentence(
+    f: &Facts,
+    floor: f64,
+    losing: bool,
+    too_fast: bool,
+    t: &Thresholds,
+) -> Option<String> {
     let tdee = f.tdee?;
     let hold = fmt::round_to(tdee.value, KCAL_STEP);
     if hold < floor {
@@ -803,8 +809,14 @@ fn maintain_sentence(f: &Facts, floor: f64, losing: bool, t: &Thresholds) -> Opt
         // (the smallest deficit the interval allows).
         let more = fmt::floor_to(-upper, KCAL_STEP);
         if more >= t.min_intake_change_kcal {
+            // Stopping a loss past the safe pace is not left to the reader's wishes.
             s.push_str(&format!(
-                " If you would like to stop losing, eating about {} a day more than now is a safe first step.",
+                " {}, eating about {} a day more than now is a safe first step.",
+                if too_fast {
+                    "To slow the loss"
+                } else {
+                    "If you would like to stop losing"
+                },
                 fmt::kcal(more)
             ));
         }
@@ -849,16 +861,23 @@ fn maintain(
         }
     });
     let losing = state.status == TrendStatus::Losing;
+    // A loss that may be faster than the safe pace is named as such here too: someone past
+    // their target or below BMI 25 who is losing fast is the last person to leave without it.
+    let fast = if losing { too_fast(t, f) } else { None };
     if losing {
+        let decimals = pace_decimals(f, fast);
         let rate = f
             .slope
-            .map(|s| format!(" (about {})", rate_words(s.value, f.units)))
+            .map(|s| format!(" (about {})", rate_words_to(s.value, f.units, decimals)))
             .unwrap_or_default();
         g.paragraphs.push(format!(
             "Your weight is still coming down{rate}, and it does not need to."
         ));
+        if let Some(max) = fast {
+            g.paragraphs.push(pace_caution(max, f, decimals));
+        }
     }
-    if let Some(s) = maintain_sentence(f, floor, losing, t) {
+    if let Some(s) = maintain_sentence(f, floor, losing, fast.is_some(), t) {
         g.paragraphs.push(s);
     }
     if state.status == TrendStatus::Insufficient {
@@ -879,19 +898,38 @@ fn maintain(
     g
 }
 
-fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
-    let mut g = empty(Phase::KeepGoing, "What to try next", floor);
-    // The safe-pace limit, when the loss may be faster than it (the slope's careful end).
-    let too_fast = match (f.slope, f.weight_kg) {
+/// The safe-pace limit for this person, kg/week, when their loss may be faster than it (at the
+/// fast end of the slope's interval); `None` otherwise. One test for every phase that describes
+/// a falling weight.
+fn too_fast(t: &Thresholds, f: &Facts) -> Option<f64> {
+    match (f.slope, f.weight_kg) {
         (Some(s), Some(w)) if s.lower.unwrap_or(s.value) < -t.max_rate(w) => Some(t.max_rate(w)),
         _ => None,
-    };
-    // The rate and the limit to the decimals that tell them apart: "about 0.8 kg a week" against
-    // "a limit of about 0.8 kg a week" read as the same pace.
-    let decimals = match (f.slope, too_fast) {
+    }
+}
+
+/// Decimals for a rate printed beside the safe-pace limit `max`: "about 0.8 kg a week" against
+/// "a limit of about 0.8 kg a week" read as the same pace, so both get two when one would not
+/// tell them apart.
+fn pace_decimals(f: &Facts, max: Option<f64>) -> usize {
+    match (f.slope, max) {
         (Some(s), Some(max)) if rate_words(s.value, f.units) == rate_words(max, f.units) => 2,
         _ => 1,
-    };
+    }
+}
+
+/// The caution for a loss that may be faster than the safe limit `max`.
+fn pace_caution(max: f64, f: &Facts, decimals: usize) -> String {
+    format!(
+        "The pace may be faster than the usual safe limit of about {}. If it stays this fast for a few more weeks, please talk to the program staff.",
+        rate_words_to(max, f.units, decimals)
+    )
+}
+
+fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
+    let mut g = empty(Phase::KeepGoing, "What to try next", floor);
+    let too_fast = too_fast(t, f);
+    let decimals = pace_decimals(f, too_fast);
     let rate = f
         .slope
         .map(|s| format!(", at about {}", rate_words_to(s.value, f.units, decimals)))
@@ -901,10 +939,7 @@ fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         Some(max) => {
             g.paragraphs
                 .push(format!("Your weight is coming down{rate}."));
-            g.paragraphs.push(format!(
-                "The pace may be faster than the usual safe limit of about {}. If it stays this fast for a few more weeks, please talk to the program staff.",
-                rate_words_to(max, f.units, decimals)
-            ));
+            g.paragraphs.push(pace_caution(max, f, decimals));
         }
         None => g.paragraphs.push(format!(
             "Your weight is coming down{rate}. There is nothing you need to change: keep going with the habits that are working for you."
@@ -1503,6 +1538,59 @@ mod tests {
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.options.is_empty(), "{:?}", g.options);
         assert!(g.paragraphs.iter().any(|p| p.contains("not suggested")));
+    }
+
+    #[test]
+    fn a_fast_loss_past_the_target_is_named_in_the_maintenance_section_too() {
+        // Target reached at BMI 20.4, still losing 0.99 kg a week at 66.2 kg: past the safe
+        // pace of 1 % of body weight (0.66 kg a week). The maintenance section said only "it
+        // does not need to" and "if you would like to stop losing …".
+        let t = Thresholds::default();
+        let mut s = st(Losing);
+        s.bmi = Some(20.4);
+        s.change_percent = Some(-28.4);
+        let mut f = facts();
+        f.weight_kg = Some(66.2);
+        f.slope = Some(Est {
+            value: -0.99,
+            lower: Some(-1.2),
+            upper: Some(-0.78),
+        });
+        f.balance = Some(Est {
+            value: -790.0,
+            lower: Some(-1200.0),
+            upper: Some(-250.0),
+        });
+        let g = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f);
+        assert_eq!(
+            g.paragraphs[1..3],
+            [
+                "Your weight is still coming down (about 1.0 kg a week), and it does not need to.".to_string(),
+                "The pace may be faster than the usual safe limit of about 0.7 kg a week. If it stays this fast for a few more weeks, please talk to the program staff.".to_string(),
+            ]
+        );
+        let all = g.paragraphs.join(" ");
+        assert!(
+            all.contains(
+                " To slow the loss, eating about 250 kcal a day more than now is a safe first step."
+            ),
+            "{all}"
+        );
+        assert!(!all.contains("If you would like"), "{all}");
+        // Within the safe pace: no caution, and stopping is the reader's choice.
+        f.slope = Some(Est {
+            value: -0.4,
+            lower: Some(-0.55),
+            upper: Some(-0.25),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(!all.contains("safe limit"), "{all}");
+        assert!(
+            all.contains("If you would like to stop losing, eating about 250 kcal"),
+            "{all}"
+        );
     }
 
     #[test]
