@@ -76,6 +76,9 @@ pub struct Thresholds {
     /// module's `low_bmi_losing_below` (default 20; MUST, BAPEN 2003 — from memory), which
     /// raises its `low_bmi` flag; the cautions name it.
     pub low_bmi_losing_below: f64,
+    /// The same from age 70: the `outcomes` module's `low_bmi_losing_below_70_plus` (default
+    /// 22; GLIM, Cederholm et al. 2019 — from memory); the cautions name it.
+    pub low_bmi_losing_below_70_plus: f64,
     /// Lowest intake an option may lead to, women, kcal/d: the `energy` module's
     /// `intake_floor_female` (default 1,200; the NIH/NHLBI 1998 Clinical Guidelines give
     /// 1,000–1,200 kcal/d diets for women — from memory; 1,200 as an unsupervised floor is
@@ -109,6 +112,7 @@ impl Default for Thresholds {
             loss_bmi_at_least: 25.0,
             underweight_bmi_below: 18.5,
             low_bmi_losing_below: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW,
+            low_bmi_losing_below_70_plus: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW_70_PLUS,
             floor_female: 1200.0,
             floor_male: 1500.0,
             max_loss_kg_per_week: 1.0,
@@ -134,15 +138,21 @@ impl Thresholds {
                 .and_then(|v| v.as_f64())
                 .unwrap_or(default)
         };
+        let outcomes = |name: &str, default: f64| {
+            plan.modules
+                .settings("outcomes")
+                .and_then(|s| s.get(name))
+                .and_then(|v| v.as_f64())
+                .unwrap_or(default)
+        };
         Thresholds {
             loss_bmi_at_least: g.loss_bmi_at_least.unwrap_or(d.loss_bmi_at_least),
             underweight_bmi_below: g.underweight_bmi_below.unwrap_or(d.underweight_bmi_below),
-            low_bmi_losing_below: plan
-                .modules
-                .settings("outcomes")
-                .and_then(|s| s.get("low_bmi_losing_below"))
-                .and_then(|v| v.as_f64())
-                .unwrap_or(d.low_bmi_losing_below),
+            low_bmi_losing_below: outcomes("low_bmi_losing_below", d.low_bmi_losing_below),
+            low_bmi_losing_below_70_plus: outcomes(
+                "low_bmi_losing_below_70_plus",
+                d.low_bmi_losing_below_70_plus,
+            ),
             floor_female: e("intake_floor_female", d.floor_female),
             floor_male: e("intake_floor_male", d.floor_male),
             max_loss_kg_per_week: e("max_safe_loss_kg_per_week", d.max_loss_kg_per_week),
