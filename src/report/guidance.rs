@@ -9,7 +9,7 @@
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
 //! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
-//! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
+//! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least`, or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
 //! | 5a | otherwise, too few recent weigh-ins for a trend | `too_little_data` | as row 4 |
@@ -231,6 +231,9 @@ pub struct State {
     /// test allows for chance (its `regain_verdict` is `regaining`), whatever the last four
     /// weeks' slope says.
     pub regained: bool,
+    /// The last four weeks' slope interval lies wholly above zero: the weight is still going
+    /// up, even where the plateau band calls the pace small.
+    pub still_rising: bool,
 }
 
 /// Why maintenance is the goal.
@@ -296,10 +299,14 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
         return Phase::Clinician;
     }
     // A rise confirmed by level counts when the last four weeks cannot speak for themselves
-    // (sparse weigh-ins, or a slope too uncertain to call); a trend that has clearly levelled
-    // off again after the rise is a plateau, met with the plateau's options.
+    // (sparse weigh-ins, or a slope too uncertain to call) or show the weight still going up
+    // (a slope interval above zero, small enough for the plateau band: 2.2 kg back up and
+    // +0.19 kg/week, 95 % 0.02 to 0.35, was met with a 1,050 kcal loss option); a trend that has
+    // levelled off again after the rise is a plateau, met with the plateau's options.
     if s.status == TrendStatus::Regaining
-        || (s.regained && matches!(s.status, TrendStatus::Insufficient | TrendStatus::Unclear))
+        || (s.regained
+            && (s.still_rising
+                || matches!(s.status, TrendStatus::Insufficient | TrendStatus::Unclear)))
     {
         return Phase::Regain;
     }
@@ -432,7 +439,15 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
             .as_ref()
             .map_or(TrendStatus::Insufficient, |t| t.status.into()),
         regained: v.trend.as_ref().is_some_and(regain_confirmed),
+        still_rising: v.trend.as_ref().is_some_and(still_rising),
     }
+}
+
+/// Whether the last four weeks' slope interval lies wholly above zero, in a window the trend
+/// module gives a verdict on (with too few weigh-ins the report says it cannot tell, and does
+/// not read the slope).
+pub fn still_rising(t: &TrendView) -> bool {
+    t.status != Status::InsufficientData && t.slope_kg_per_week.lower.is_some_and(|l| l > 0.0)
 }
 
 /// Whether the trend module's level test confirms a rise from the lowest trend weight.
@@ -691,6 +706,9 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     // while the last four weeks cannot say whether it goes on. The rise itself, with its range,
     // stands in the headline and the summary above; the section does not print it a third time.
     let opening = match state.status {
+        s if state.regained && s != TrendStatus::Regaining && state.still_rising => format!(
+            "Your weight has come back up from its lowest point, as shown above, and it is still edging up{rate} over the last four weeks. This happens to most people at some point; the first step is to steady it where it is now."
+        ),
         s if state.regained && s != TrendStatus::Regaining => format!(
             "Your weight has come back up from its lowest point, as shown above. {} This happens to most people at some point; the first step is to steady it where it is now.",
             if s == TrendStatus::Insufficient {
@@ -1114,6 +1132,7 @@ mod tests {
             target_percent: -5.0,
             status,
             regained: false,
+            still_rising: false,
         }
     }
 
@@ -1510,6 +1529,45 @@ mod tests {
         // A slope that rises says so, as before.
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.paragraphs[0].contains("going up over the last four weeks"));
+    }
+
+    #[test]
+    fn a_rise_still_going_on_within_the_plateau_band_is_met_as_a_rise() {
+        // Sample seed 7, SG-227, September: 2.2 kg back up from the lowest trend weight (level
+        // test confirms), last four weeks +0.19 kg/week (95 % 0.02 to 0.35) at 117 kg, inside
+        // the plateau band of ±0.29: the report offered "Eat about 1,050 kcal a day less" to
+        // restart a loss instead of steadying the weight first.
+        let t = Thresholds::default();
+        let mut s = st(Plateau);
+        s.bmi = Some(38.1);
+        s.change_percent = Some(-3.2);
+        s.regained = true;
+        s.still_rising = true;
+        assert_eq!(decide(&s, &t), Phase::Regain);
+        let mut f = facts();
+        f.slope = Some(Est {
+            value: 0.19,
+            lower: Some(0.02),
+            upper: Some(0.35),
+        });
+        f.balance = Some(Est {
+            value: 212.0,
+            lower: Some(20.0),
+            upper: Some(400.0),
+        });
+        let g = compose(decide(&s, &t), &s, &t, &f);
+        assert_eq!(
+            g.paragraphs[0],
+            "Your weight has come back up from its lowest point, as shown above, and it is still edging up, by about 0.2 kg a week over the last four weeks. This happens to most people at some point; the first step is to steady it where it is now."
+        );
+        assert_eq!(g.options[0].intake_cut_kcal, 200.0);
+        // Levelled off after the rise (the interval reaches zero): the plateau's options.
+        s.still_rising = false;
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+        // Still rising without a confirmed rise from the lowest point: unchanged.
+        s.still_rising = true;
+        s.regained = false;
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
     }
 
     #[test]

@@ -543,9 +543,18 @@ fn headline(
             fmt::fixed(fmt::weight_value(rate.unwrap_or(0.0), units).abs(), 2),
             fmt::weight_unit(units)
         ),
+        // A plateau is a pace inside the plateau band, not necessarily none: a slope whose
+        // whole interval is above zero is named as the slow rise it is, not "held steady"
+        // (sample seed 7, SG-227: "held steady" above +0.19 kg/week, 95 % 0.02 to 0.35).
+        Status::Plateau if trend.is_some_and(guidance::still_rising) => format!(
+            "Your weight has edged up over the last four weeks ({rate_s}), slowly enough to count as a plateau."
+        ),
         Status::Plateau => {
             "Your weight has held steady over the last four weeks (a plateau).".to_string()
         }
+        Status::Stable if trend.is_some_and(guidance::still_rising) => format!(
+            "Your weight has been nearly stable over the last four weeks, edging up slowly ({rate_s})."
+        ),
         Status::Regaining => {
             format!("Your weight trend has been rising over the last four weeks ({rate_s}).")
         }
@@ -1176,6 +1185,41 @@ mod activity_unread_tests {
         t.slope_kg_per_week.value = Some(0.3);
         let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert!(!h.contains("lowest point"), "{h}");
+    }
+
+    /// Sample seed 7, SG-227, September: "Your weight has held steady over the last four weeks
+    /// (a plateau)" above "Recent rate +0.19 kg/week" whose 95 % interval (0.02 to 0.35) lies
+    /// wholly above zero, inside the plateau band of a 117 kg person.
+    #[test]
+    fn a_plateau_that_is_still_edging_up_is_not_called_steady() {
+        let mut t = TrendView {
+            status: Status::Plateau,
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week = Interval {
+            value: Some(0.19),
+            lower: Some(0.02),
+            upper: Some(0.35),
+        };
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        assert_eq!(
+            h,
+            "Your weight has edged up over the last four weeks (+0.19 kg/week), slowly enough to count as a plateau."
+        );
+        t.status = Status::Stable;
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        assert_eq!(
+            h,
+            "Your weight has been nearly stable over the last four weeks, edging up slowly (+0.19 kg/week)."
+        );
+        // An interval that reaches zero: held steady, as before.
+        t.status = Status::Plateau;
+        t.slope_kg_per_week.lower = Some(-0.02);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        assert_eq!(
+            h,
+            "Your weight has held steady over the last four weeks (a plateau)."
+        );
     }
 
     /// "Too few recent weigh-ins to see how your weight moved" stood above "Recent rate (last
