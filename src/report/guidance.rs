@@ -11,7 +11,7 @@
 //! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
-//! | 5 | target reached, BMI below `loss_bmi_at_least`, or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
+//! | 5 | target reached, BMI below `loss_bmi_at_least` (from age 70 below `loss_bmi_at_least_70_plus`, default 30), or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
 //! | 5a | otherwise, too few recent weigh-ins for a trend | `too_little_data` | as row 4 |
 //! | 6 | losing, loss still the goal | `keep_going` | encouragement; a caution if the pace may be too fast |
 //! | 7 | plateau, stable or unclear, loss still the goal | `restart_loss` | options to restart a steady loss, each safe at the harmful bound |
@@ -69,6 +69,12 @@ pub struct Thresholds {
     /// BMI at or above which loss may still be the goal. Default 25: the WHO cut-off between
     /// normal weight and overweight (WHO 2000, Technical Report Series 894).
     pub loss_bmi_at_least: f64,
+    /// The same for people aged 70 or over. Default 30: in older adults who are overweight
+    /// but not obese, weight-reducing diets are to be avoided, since they cost muscle and bone
+    /// that are hard to regain and a BMI of 25–30 carries no excess risk at that age (ESPEN
+    /// guideline on clinical nutrition and hydration in geriatrics, Volkert et al. 2019, Clin
+    /// Nutr 38:10–47 — from memory). The higher of this and `loss_bmi_at_least` applies.
+    pub loss_bmi_at_least_70_plus: f64,
     /// BMI below which further loss is for a clinician. Default 18.5: the WHO cut-off for
     /// underweight (WHO 2000, Technical Report Series 894).
     pub underweight_bmi_below: f64,
@@ -110,6 +116,7 @@ impl Default for Thresholds {
     fn default() -> Self {
         Thresholds {
             loss_bmi_at_least: 25.0,
+            loss_bmi_at_least_70_plus: 30.0,
             underweight_bmi_below: 18.5,
             low_bmi_losing_below: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW,
             low_bmi_losing_below_70_plus: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW_70_PLUS,
@@ -147,6 +154,9 @@ impl Thresholds {
         };
         Thresholds {
             loss_bmi_at_least: g.loss_bmi_at_least.unwrap_or(d.loss_bmi_at_least),
+            loss_bmi_at_least_70_plus: g
+                .loss_bmi_at_least_70_plus
+                .unwrap_or(d.loss_bmi_at_least_70_plus),
             underweight_bmi_below: g.underweight_bmi_below.unwrap_or(d.underweight_bmi_below),
             low_bmi_losing_below: outcomes("low_bmi_losing_below", d.low_bmi_losing_below),
             low_bmi_losing_below_70_plus: outcomes(
@@ -171,6 +181,16 @@ impl Thresholds {
         match sex {
             Sex::Female => self.floor_female,
             Sex::Male => self.floor_male,
+        }
+    }
+
+    /// The BMI at or above which loss may be the goal for this person: from age 70 the
+    /// higher of the two cut-offs.
+    pub fn loss_cut(&self, older: bool) -> f64 {
+        if older {
+            self.loss_bmi_at_least.max(self.loss_bmi_at_least_70_plus)
+        } else {
+            self.loss_bmi_at_least
         }
     }
 
@@ -234,6 +254,8 @@ pub struct State {
     /// The last four weeks' slope interval lies wholly above zero: the weight is still going
     /// up, even where the plateau band calls the pace small.
     pub still_rising: bool,
+    /// Aged 70 or over at the period's end (cohortpress_metric_outcomes::OLDER_ADULT_AGE).
+    pub older: bool,
 }
 
 /// Why maintenance is the goal.
@@ -320,7 +342,7 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
     if change <= s.target_percent {
         return Phase::Maintain(MaintainWhy::TargetReached);
     }
-    if bmi < t.loss_bmi_at_least {
+    if bmi < t.loss_cut(s.older) {
         return Phase::Maintain(MaintainWhy::BmiBelowCutoff);
     }
     match s.status {
@@ -335,7 +357,7 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
 /// no loss milestone still to reach.
 pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
     s.bmi
-        .is_some_and(|b| b < t.loss_bmi_at_least || b < t.underweight_bmi_below)
+        .is_some_and(|b| b < t.loss_cut(s.older) || b < t.underweight_bmi_below)
         || s.clinical_flags.iter().any(|c| c == "pregnancy")
 }
 
@@ -343,7 +365,7 @@ pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
 pub fn loss_is_goal(s: &State, t: &Thresholds) -> bool {
     s.target_percent < 0.0
         && s.change_percent.is_none_or(|c| c > s.target_percent)
-        && s.bmi.is_some_and(|b| b >= t.loss_bmi_at_least)
+        && s.bmi.is_some_and(|b| b >= t.loss_cut(s.older))
         && !bmi_rules_out_loss(s, t)
 }
 
@@ -440,6 +462,7 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
             .map_or(TrendStatus::Insufficient, |t| t.status.into()),
         regained: v.trend.as_ref().is_some_and(regain_confirmed),
         still_rising: v.trend.as_ref().is_some_and(still_rising),
+        older: data.profile.age_on(plan.period.to) >= cohortpress_metric_outcomes::OLDER_ADULT_AGE,
     }
 }
 
@@ -878,6 +901,20 @@ fn maintain(
             fmt::fixed(state.target_percent.abs(), 0),
             fmt::fixed(change.abs(), 1)
         ),
+        // From 70 the cut-off is the older adults' one, and the WHO class is not the reason.
+        MaintainWhy::BmiBelowCutoff
+            if state.older
+                && t.loss_cut(true) > t.loss_bmi_at_least
+                && state.bmi.is_some_and(|b| b >= t.loss_bmi_at_least) =>
+        {
+            format!(
+                "Your BMI is {}below {}. From the age of 70, losing weight at a BMI below {} is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing {}. The aim from here is to hold your weight.",
+                if lost { "now " } else { "" },
+                fmt::fixed(t.loss_cut(true), 0),
+                fmt::fixed(t.loss_cut(true), 0),
+                if lost { "more" } else { "weight" }
+            )
+        }
         MaintainWhy::BmiBelowCutoff => format!(
             "Your BMI is {}below {}, in the range the WHO calls normal weight, so this report does not suggest losing {}. The aim from here is to hold your weight.",
             if lost { "now " } else { "" },
@@ -1133,6 +1170,7 @@ mod tests {
             status,
             regained: false,
             still_rising: false,
+            older: false,
         }
     }
 
@@ -1529,6 +1567,41 @@ mod tests {
         // A slope that rises says so, as before.
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.paragraphs[0].contains("going up over the last four weeks"));
+    }
+
+    #[test]
+    fn from_70_a_bmi_under_30_is_held_not_reduced() {
+        // A woman of 73 at BMI 27 on a plateau, 2 % down, target −5 %: the report offered ways
+        // to restart a loss of 0.5 kg a week. In older adults who are overweight but not obese,
+        // weight-reducing diets are to be avoided (ESPEN 2019 geriatrics guideline, from memory).
+        let t = Thresholds::default();
+        let mut s = st(Plateau);
+        s.bmi = Some(27.0);
+        s.older = true;
+        assert_eq!(decide(&s, &t), Phase::Maintain(MaintainWhy::BmiBelowCutoff));
+        assert!(bmi_rules_out_loss(&s, &t));
+        assert!(!loss_is_goal(&s, &t));
+        let g = compose(decide(&s, &t), &s, &t, &facts());
+        assert!(g.options.is_empty());
+        assert_eq!(
+            g.paragraphs[0],
+            "Your BMI is now below 30. From the age of 70, losing weight at a BMI below 30 is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing more. The aim from here is to hold your weight."
+        );
+        // Under 70, or at BMI 30 or more: loss may still be the goal.
+        s.older = false;
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+        s.older = true;
+        s.bmi = Some(31.0);
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+        // Below 25 the WHO class is the reason, as for everyone.
+        s.bmi = Some(23.0);
+        let g = compose(decide(&s, &t), &s, &t, &facts());
+        assert!(
+            g.paragraphs[0]
+                .starts_with("Your BMI is now below 25, in the range the WHO calls normal weight"),
+            "{}",
+            g.paragraphs[0]
+        );
     }
 
     #[test]
