@@ -851,6 +851,17 @@ fn maintain_sentence(
         "By the energy-balance model, about {} a day holds your current weight with your present activity{range}.",
         fmt::kcal(hold)
     );
+    // A range whose lower end is under the floor must not read as leave to eat that little:
+    // the floor is checked on the uncertain side, as for every amount in this section.
+    if tdee
+        .lower
+        .is_some_and(|l| fmt::floor_to(l, KCAL_STEP) < floor)
+    {
+        s.push_str(&format!(
+            " Whatever your weigh-ins show, please do not eat less than {} a day without talking to a licensed clinician.",
+            fmt::kcal(floor)
+        ));
+    }
     if losing
         && let Some(b) = f.balance
         && let Some(upper) = b.upper
@@ -1567,6 +1578,41 @@ mod tests {
         // A slope that rises says so, as before.
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.paragraphs[0].contains("going up over the last four weeks"));
+    }
+
+    #[test]
+    fn a_holding_range_that_reaches_under_the_floor_carries_the_floor() {
+        // A woman of 69, 140 cm and 40.5 kg, steady: "about 1,400 kcal a day holds your current
+        // weight … (likely between 1,150 and 1,650 kcal, so let your weekly weigh-ins guide
+        // you)". The range's lower end, under the 1,200 kcal floor, was printed with the
+        // weigh-ins named as the guide and nothing about the floor.
+        let t = Thresholds::default();
+        let mut s = st(Stable);
+        s.bmi = Some(22.8);
+        s.change_percent = Some(-0.2);
+        let mut f = facts();
+        f.tdee = Some(Est {
+            value: 1400.0,
+            lower: Some(1110.0),
+            upper: Some(1690.0),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("about 1,400 kcal a day holds your current weight with your present activity (likely between 1,100 and 1,700 kcal, so let your weekly weigh-ins guide you). Whatever your weigh-ins show, please do not eat less than 1,200 kcal a day without talking to a licensed clinician."),
+            "{all}"
+        );
+        // A range above the floor needs no such line.
+        f.tdee = Some(Est {
+            value: 2010.0,
+            lower: Some(1630.0),
+            upper: Some(2390.0),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(!all.contains("please do not eat less"), "{all}");
     }
 
     #[test]
