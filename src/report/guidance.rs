@@ -814,9 +814,13 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         ));
     }
     if loss_is_goal(state, t) {
-        g.closing.push(
-            "Once your weight is steady again, next month's report will look at what it would take to get back to a steady loss.".into(),
-        );
+        // "Back to" a loss only for someone who has lost: a weight that has only gone up since
+        // enrolment (no prior loss, no rise from a lower point) has no loss to return to.
+        let lost_before = state.regained || state.change_percent.is_some_and(|c| c < 0.0);
+        g.closing.push(format!(
+            "Once your weight is steady again, next month's report will look at what it would take to {} a steady loss.",
+            if lost_before { "get back to" } else { "start" }
+        ));
     }
     g
 }
@@ -1578,6 +1582,30 @@ mod tests {
         // A slope that rises says so, as before.
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.paragraphs[0].contains("going up over the last four weeks"));
+    }
+
+    #[test]
+    fn a_rise_without_an_earlier_loss_is_not_told_to_get_back_to_one() {
+        // Hand-made E08: +10.7 % since enrolment, rising 0.4 kg a week, never lower than at
+        // the start: "next month's report will look at what it would take to get back to a
+        // steady loss".
+        let t = Thresholds::default();
+        let mut s = st(Regaining);
+        s.change_percent = Some(10.7);
+        let f = facts();
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert_eq!(
+            g.closing.last().unwrap(),
+            "Once your weight is steady again, next month's report will look at what it would take to start a steady loss."
+        );
+        s.change_percent = Some(-2.0);
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert!(
+            g.closing
+                .last()
+                .unwrap()
+                .contains("get back to a steady loss")
+        );
     }
 
     #[test]
