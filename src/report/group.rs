@@ -464,10 +464,12 @@ fn fill(
         // No chart with empty bars on a meaningless axis: say what is missing, show the table.
         view.undrawn.push(ChartView {
             title: "Distribution of weight change".into(),
+            // Whom the bands count is said here too: without it a sponsor cannot tell the
+            // table from a completers' distribution.
             alt: format!(
-                "Not drawn as a chart: {hidden_bins} of the {} bands hold too few people to show \
-                 exactly, so their counts are given below as the ranges the rest of this report \
-                 already implies.",
+                "{hist_alt} Not drawn as a chart: {hidden_bins} of the {} bands hold too few \
+                 people to show exactly, so their counts are given below as the ranges the rest \
+                 of this report already implies.",
                 st.histogram.bins.len()
             ),
             table: hist_table,
