@@ -454,11 +454,27 @@ fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
     out.push_flag(
         TrendFlag::InsufficientData.as_str(),
         FlagSeverity::Info,
-        format!(
-            "Only {days} day(s) with a weigh-in up to {}: at least 3 are needed to estimate a weight trend.",
+        insufficient_words(days, to),
+    );
+}
+
+/// Why there is no trend, in words a participant reads ("Only 0 day(s) with a weigh-in" stood
+/// in the report of someone who keeps only a food log).
+fn insufficient_words(days: usize, to: NaiveDate) -> String {
+    match days {
+        0 => format!(
+            "No weigh-in up to {} yet: at least 3 days with a weigh-in are needed to estimate a weight trend.",
             iso(to)
         ),
-    );
+        1 => format!(
+            "Only 1 day with a weigh-in up to {}: at least 3 are needed to estimate a weight trend.",
+            iso(to)
+        ),
+        n => format!(
+            "Only {n} days with a weigh-in up to {}: at least 3 are needed to estimate a weight trend.",
+            iso(to)
+        ),
+    }
 }
 
 fn periods_table(rows: &[PeriodRow]) -> Table {
@@ -1164,6 +1180,17 @@ mod tests {
         let w = verdict(WindowKind::Plateau, -0.01, -0.02, 0.0);
         assert_eq!(status_code(&w, true), Status::Plateau);
         assert_eq!(status_code(&w, false), Status::InsufficientData);
+    }
+
+    #[test]
+    fn too_few_weigh_ins_are_counted_in_words() {
+        let to = NaiveDate::from_ymd_opt(2026, 9, 30).unwrap();
+        assert_eq!(
+            insufficient_words(0, to),
+            "No weigh-in up to 2026-09-30 yet: at least 3 days with a weigh-in are needed to estimate a weight trend."
+        );
+        assert!(insufficient_words(1, to).starts_with("Only 1 day with a weigh-in up to"));
+        assert!(insufficient_words(2, to).starts_with("Only 2 days with a weigh-in up to"));
     }
 
     #[test]
