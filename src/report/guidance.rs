@@ -674,13 +674,18 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
         Phase::KeepGoing => keep_going(t, f, floor),
         Phase::RestartLoss => restart_loss(t, f, floor),
     };
+    // Read before any amount, not after it: the options come between the paragraphs and the
+    // closing lines, and "eat about 350 kcal a day less" stood above "please check with the
+    // clinician who prescribes it before eating less" (demo seed 11, SG-038, June: a
+    // glucose-lowering medicine and a lab value in the diabetes range; a sulfonylurea or
+    // insulin dose set for the old intake can then lower blood sugar too far — common practice).
     if f.lab_in_diabetes_range {
-        g.closing.push(
+        g.paragraphs.push(
             "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".into(),
         );
     }
     if f.glucose_lowering {
-        g.closing.push(
+        g.paragraphs.push(
             "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".into(),
         );
     }
@@ -1582,6 +1587,31 @@ mod tests {
         // A slope that rises says so, as before.
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.paragraphs[0].contains("going up over the last four weeks"));
+    }
+
+    #[test]
+    fn medical_cautions_come_before_the_amounts() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.glucose_lowering = true;
+        f.lab_in_diabetes_range = true;
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert!(!g.options.is_empty());
+        assert!(
+            g.closing
+                .iter()
+                .all(|c| !c.contains("blood sugar") && !c.contains("diabetes")),
+            "{:?}",
+            g.closing
+        );
+        let n = g.paragraphs.len();
+        assert_eq!(
+            g.paragraphs[n - 2..],
+            [
+                "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".to_string(),
+                "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".to_string(),
+            ]
+        );
     }
 
     #[test]
