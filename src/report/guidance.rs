@@ -530,7 +530,14 @@ struct Facts {
     activity_target: f64,
     lab_in_diabetes_range: bool,
     glucose_lowering: bool,
+    /// The day of the last weigh-in when it is [`RECENT_WEIGH_IN_DAYS`] or more before the
+    /// period's end: the trend weight is then that day's, not a current one.
+    stale_since: Option<NaiveDate>,
 }
+
+/// Days after which a last weigh-in no longer gives a current weight: the last four weeks of
+/// the period, the window in which the group report counts someone as having an outcome.
+pub const RECENT_WEIGH_IN_DAYS: f64 = 28.0;
 
 /// Builds the guidance section.
 pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) -> GuidanceView {
@@ -576,6 +583,10 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .flags
             .iter()
             .any(|f| f == GLUCOSE_LOWERING_FLAG),
+        stale_since: trend
+            .and_then(|t| t.days_since_last_weigh_in)
+            .filter(|d| *d >= RECENT_WEIGH_IN_DAYS)
+            .map(|d| plan.period.to - chrono::Duration::days(d.round() as i64)),
     };
     compose(phase, &state, &t, &facts)
 }
@@ -856,10 +867,19 @@ fn maintain_sentence(
         ),
         _ => String::new(),
     };
-    let mut s = format!(
-        "By the energy-balance model, about {} a day holds your current weight with your present activity{range}.",
-        fmt::kcal(hold)
-    );
+    // Weeks after the last weigh-in there is no current weight or present activity to speak
+    // of (hand-made E12, no record since 15 Jul, read "holds your current weight" in September).
+    let mut s = match f.stale_since {
+        Some(d) => format!(
+            "By the energy-balance model, about {} a day would hold the weight of your last weigh-in ({}){range}.",
+            fmt::kcal(hold),
+            fmt::date(d)
+        ),
+        None => format!(
+            "By the energy-balance model, about {} a day holds your current weight with your present activity{range}.",
+            fmt::kcal(hold)
+        ),
+    };
     // A range whose lower end is under the floor must not read as leave to eat that little:
     // the floor is checked on the uncertain side, as for every amount in this section.
     if tdee
@@ -1405,6 +1425,7 @@ mod tests {
             activity_target: 150.0,
             lab_in_diabetes_range: false,
             glucose_lowering: false,
+            stale_since: None,
         }
     }
 
@@ -1636,6 +1657,24 @@ mod tests {
                 .unwrap()
                 .contains("get back to a steady loss")
         );
+    }
+
+    #[test]
+    fn a_holding_intake_after_weeks_without_records_names_the_last_weigh_in() {
+        let t = Thresholds::default();
+        let mut s = st(Insufficient);
+        s.bmi = Some(29.9);
+        s.change_percent = Some(-7.3);
+        let mut f = facts();
+        f.stale_since = NaiveDate::from_ymd_opt(2026, 7, 15);
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("By the energy-balance model, about 2,000 kcal a day would hold the weight of your last weigh-in (15 Jul 2026)."),
+            "{all}"
+        );
+        assert!(!all.contains("current weight"), "{all}");
     }
 
     #[test]

@@ -273,10 +273,6 @@ fn person_facts(p: &Profile, units: UnitSystem) -> Vec<Kv> {
     facts
 }
 
-/// Days after which a last weigh-in no longer gives a current weight: the last four weeks of
-/// the period, the window in which the group report counts someone as having an outcome.
-const RECENT_WEIGH_IN_DAYS: f64 = 28.0;
-
 /// Key figures: current and starting weight, change, recent rate, BMI. `to` is the period's
 /// last day.
 fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
@@ -290,7 +286,7 @@ fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
         // current one (someone who stopped recording in July read "Current weight" in a
         // September report).
         let label = match trend.and_then(|t| t.days_since_last_weigh_in) {
-            Some(d) if d >= RECENT_WEIGH_IN_DAYS => format!(
+            Some(d) if d >= guidance::RECENT_WEIGH_IN_DAYS => format!(
                 "Weight at your last weigh-in ({}, trend)",
                 fmt::date(to - chrono::Duration::days(d.round() as i64))
             ),
