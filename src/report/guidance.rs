@@ -871,7 +871,7 @@ fn maintain_sentence(
     // of (hand-made E12, no record since 15 Jul, read "holds your current weight" in September).
     let mut s = match f.stale_since {
         Some(d) => format!(
-            "By the energy-balance model, about {} a day would hold the weight of your last weigh-in ({}){range}.",
+            "By the energy-balance model, about {} a day would hold the weight of your last weigh-in on {}{range}.",
             fmt::kcal(hold),
             fmt::date(d)
         ),
@@ -1671,7 +1671,7 @@ mod tests {
             .paragraphs
             .join(" ");
         assert!(
-            all.contains("By the energy-balance model, about 2,000 kcal a day would hold the weight of your last weigh-in (15 Jul 2026)."),
+            all.contains("By the energy-balance model, about 2,000 kcal a day would hold the weight of your last weigh-in on 15 Jul 2026."),
             "{all}"
         );
         assert!(!all.contains("current weight"), "{all}");
