@@ -347,6 +347,7 @@ pub(crate) fn build_with(
         }
     }
 
+    floors_agree(program, &entries, &mut diags);
     if diags
         .iter()
         .any(|d| d.severity == crate::diag::Severity::Error)
@@ -354,6 +355,50 @@ pub(crate) fn build_with(
         Err(diags)
     } else {
         Ok((ModuleSet { entries }, diags))
+    }
+}
+
+/// The intake floors are settings of two modules: `energy` refuses options below them and the
+/// report's guidance and cautions print them; `outcomes` raises the clinician's `low_intake`
+/// flag below its own. Set apart (`energy`'s floor raised to 1,400 alone), the report would tell a
+/// woman logging 1,300 kcal that intakes under 1,400 should be reviewed by a clinician while no
+/// flag reached the clinician. Two different values are an error at the `outcomes` entry.
+fn floors_agree(program: &Program, entries: &[Entry], diags: &mut Vec<Diagnostic>) {
+    let get = |id: &str| entries.iter().find(|e| e.spec.id == id);
+    let (Some(energy), Some(outcomes)) = (get("energy"), get("outcomes")) else {
+        return;
+    };
+    let at = program
+        .def
+        .modules
+        .iter()
+        .position(|d| d.id == "outcomes")
+        .and_then(|i| program.module_lines.get(&i).copied());
+    for key in ["intake_floor_female", "intake_floor_male"] {
+        let e = energy.settings.get(key).and_then(|v| v.as_f64());
+        let o = outcomes.settings.get(key).and_then(|v| v.as_f64());
+        if let (Some(e), Some(o)) = (e, o)
+            && e != o
+        {
+            let d = Diagnostic::error(
+                "program.yaml",
+                format!(
+                    "`{key}` differs between the `energy` module ({e}) and the `outcomes` \
+                     module ({o})"
+                ),
+            )
+            .field(format!("modules.outcomes.with.{key}"))
+            .expected(format!("the same {key} in both modules ({e})"))
+            .found(o.to_string())
+            .hint(
+                "the report's suggestions and cautions use the energy module's floor and the \
+                 clinician's low-intake flag uses the outcomes module's: set both to one value",
+            );
+            diags.push(match at {
+                Some(line) => d.at(line, None),
+                None => d,
+            });
+        }
     }
 }
 

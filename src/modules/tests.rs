@@ -513,3 +513,28 @@ fn command_words_with_absolute_paths_are_shown_by_file_name() {
     assert_eq!(shown("../mods/steps.py"), "../mods/steps.py");
     assert_eq!(shown("--goal=8000"), "--goal=8000");
 }
+
+/// `energy`'s floor raised to 1,400 alone: the report's cautions would name 1,400 while the
+/// clinician's low-intake flag (the `outcomes` module's floor) stayed at 1,200. The two must
+/// agree; equal values, or defaults on both, are fine.
+#[test]
+fn the_two_modules_intake_floors_must_agree() {
+    let real = |yaml: &str| build_with(&program(yaml), super::registry::builtin_modules());
+    let base = "  - id: trend\n  - id: energy\n    with: { intake_floor_female: 1400 }\n";
+    let errs = real(&format!("{base}  - id: outcomes\n")).unwrap_err();
+    let errs = errors(&errs);
+    assert_eq!(errs.len(), 1, "{errs:?}");
+    assert_eq!(
+        errs[0].message,
+        "`intake_floor_female` differs between the `energy` module (1400) and the `outcomes` module (1200)"
+    );
+    assert_eq!(errs[0].line, Some(12));
+    assert_eq!(errs[0].found.as_deref(), Some("1200"));
+    assert!(
+        real(&format!(
+            "{base}  - id: outcomes\n    with: {{ intake_floor_female: 1400 }}\n"
+        ))
+        .is_ok()
+    );
+    assert!(real("  - id: trend\n  - id: energy\n  - id: outcomes\n").is_ok());
+}

@@ -314,6 +314,12 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
             40.0,
         ),
         (
+            "guidance.loss_bmi_at_least_70_plus",
+            g.loss_bmi_at_least_70_plus,
+            18.5,
+            40.0,
+        ),
+        (
             "guidance.underweight_bmi_below",
             g.underweight_bmi_below,
             15.0,

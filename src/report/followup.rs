@@ -77,7 +77,9 @@ pub fn reason(code: &str) -> &'static str {
             "Logged intake very low (below the program's very-low-intake threshold on average)"
         }
         "low_intake" => "Logged intake below the usual floor for eating less without supervision",
-        "low_bmi" => "BMI in the underweight range, or near it while weight is still coming down",
+        "low_bmi" => {
+            "BMI in the underweight range, or low for the person's age while weight is still coming down"
+        }
         "lab_diabetes_range" => {
             "Latest glucose or HbA1c in the diabetes range (ADA Standards of Care)"
         }

@@ -464,10 +464,12 @@ fn fill(
         // No chart with empty bars on a meaningless axis: say what is missing, show the table.
         view.undrawn.push(ChartView {
             title: "Distribution of weight change".into(),
+            // Whom the bands count is said here too: without it a sponsor cannot tell the
+            // table from a completers' distribution.
             alt: format!(
-                "Not drawn as a chart: {hidden_bins} of the {} bands hold too few people to show \
-                 exactly, so their counts are given below as the ranges the rest of this report \
-                 already implies.",
+                "{hist_alt} Not drawn as a chart: {hidden_bins} of the {} bands hold too few \
+                 people to show exactly, so their counts are given below as the ranges the rest \
+                 of this report already implies.",
                 st.histogram.bins.len()
             ),
             table: hist_table,
@@ -507,7 +509,7 @@ fn fill(
         .collect();
     if pts.iter().filter(|p| p.1.is_finite()).count() >= 2 {
         let name = format!("{anchor}-trajectory");
-        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band; a week whose mean is not shown (too few participants, or a figure from which a small count could be worked out by subtraction) is a gap in the line. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
+        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band, over the participants whose weight trend reaches that week (n in the table): someone who stopped weighing in leaves the later weeks, so these are means of those still weighing in, not intention-to-treat, and later weeks lean towards the people who stayed. A week whose mean is not shown (too few participants, or a figure from which a small count could be worked out by subtraction) is a gap in the line. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
         let table = TableView {
             header: vec!["Week".into(), "n".into(), "Mean change (95 % CI)".into()],
             rows: st
@@ -525,7 +527,7 @@ fn fill(
         charts.push((
             name.clone(),
             Chart::Line(LineChart {
-                title: "Mean weight change by week".into(),
+                title: "Mean weight change by week (those still weighing in)".into(),
                 y_label: "% change".into(),
                 lines: vec![LineSeries {
                     label: "Mean % change".into(),
@@ -553,14 +555,14 @@ fn fill(
         view.charts.push(NamedChartView {
             name: name.clone(),
             view: ChartView {
-                title: "Mean weight change by week".into(),
+                title: "Mean weight change by week (those still weighing in)".into(),
                 alt,
                 table,
             },
         });
     } else if !st.trajectory.is_empty() {
         view.undrawn.push(ChartView {
-            title: "Mean weight change by week".into(),
+            title: "Mean weight change by week (those still weighing in)".into(),
             alt: "Not drawn: fewer than two weeks have enough people for a mean that reveals \
                   nobody's own change."
                 .into(),

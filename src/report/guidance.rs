@@ -9,9 +9,9 @@
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
 //! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
-//! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
+//! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
-//! | 5 | target reached, BMI below `loss_bmi_at_least`, or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
+//! | 5 | target reached, BMI below `loss_bmi_at_least` (from age 70 below `loss_bmi_at_least_70_plus`, default 30), or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
 //! | 5a | otherwise, too few recent weigh-ins for a trend | `too_little_data` | as row 4 |
 //! | 6 | losing, loss still the goal | `keep_going` | encouragement; a caution if the pace may be too fast |
 //! | 7 | plateau, stable or unclear, loss still the goal | `restart_loss` | options to restart a steady loss, each safe at the harmful bound |
@@ -72,6 +72,12 @@ pub struct Thresholds {
     /// BMI at or above which loss may still be the goal. Default 25: the WHO cut-off between
     /// normal weight and overweight (WHO 2000, Technical Report Series 894).
     pub loss_bmi_at_least: f64,
+    /// The same for people aged 70 or over. Default 30: in older adults who are overweight
+    /// but not obese, weight-reducing diets are to be avoided, since they cost muscle and bone
+    /// that are hard to regain and a BMI of 25–30 carries no excess risk at that age (ESPEN
+    /// guideline on clinical nutrition and hydration in geriatrics, Volkert et al. 2019, Clin
+    /// Nutr 38:10–47 — from memory). The higher of this and `loss_bmi_at_least` applies.
+    pub loss_bmi_at_least_70_plus: f64,
     /// BMI below which further loss is for a clinician. Default 18.5: the WHO cut-off for
     /// underweight (WHO 2000, Technical Report Series 894).
     pub underweight_bmi_below: f64,
@@ -79,6 +85,9 @@ pub struct Thresholds {
     /// module's `low_bmi_losing_below` (default 20; MUST, BAPEN 2003 — from memory), which
     /// raises its `low_bmi` flag; the cautions name it.
     pub low_bmi_losing_below: f64,
+    /// The same from age 70: the `outcomes` module's `low_bmi_losing_below_70_plus` (default
+    /// 22; GLIM, Cederholm et al. 2019 — from memory); the cautions name it.
+    pub low_bmi_losing_below_70_plus: f64,
     /// Lowest intake an option may lead to, women, kcal/d: the `energy` module's
     /// `intake_floor_female` (default 1,200; the NIH/NHLBI 1998 Clinical Guidelines give
     /// 1,000–1,200 kcal/d diets for women — from memory; 1,200 as an unsupervised floor is
@@ -110,8 +119,10 @@ impl Default for Thresholds {
     fn default() -> Self {
         Thresholds {
             loss_bmi_at_least: 25.0,
+            loss_bmi_at_least_70_plus: 30.0,
             underweight_bmi_below: 18.5,
             low_bmi_losing_below: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW,
+            low_bmi_losing_below_70_plus: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW_70_PLUS,
             floor_female: 1200.0,
             floor_male: 1500.0,
             max_loss_kg_per_week: 1.0,
@@ -137,15 +148,24 @@ impl Thresholds {
                 .and_then(|v| v.as_f64())
                 .unwrap_or(default)
         };
+        let outcomes = |name: &str, default: f64| {
+            plan.modules
+                .settings("outcomes")
+                .and_then(|s| s.get(name))
+                .and_then(|v| v.as_f64())
+                .unwrap_or(default)
+        };
         Thresholds {
             loss_bmi_at_least: g.loss_bmi_at_least.unwrap_or(d.loss_bmi_at_least),
+            loss_bmi_at_least_70_plus: g
+                .loss_bmi_at_least_70_plus
+                .unwrap_or(d.loss_bmi_at_least_70_plus),
             underweight_bmi_below: g.underweight_bmi_below.unwrap_or(d.underweight_bmi_below),
-            low_bmi_losing_below: plan
-                .modules
-                .settings("outcomes")
-                .and_then(|s| s.get("low_bmi_losing_below"))
-                .and_then(|v| v.as_f64())
-                .unwrap_or(d.low_bmi_losing_below),
+            low_bmi_losing_below: outcomes("low_bmi_losing_below", d.low_bmi_losing_below),
+            low_bmi_losing_below_70_plus: outcomes(
+                "low_bmi_losing_below_70_plus",
+                d.low_bmi_losing_below_70_plus,
+            ),
             floor_female: e("intake_floor_female", d.floor_female),
             floor_male: e("intake_floor_male", d.floor_male),
             max_loss_kg_per_week: e("max_safe_loss_kg_per_week", d.max_loss_kg_per_week),
@@ -164,6 +184,16 @@ impl Thresholds {
         match sex {
             Sex::Female => self.floor_female,
             Sex::Male => self.floor_male,
+        }
+    }
+
+    /// The BMI at or above which loss may be the goal for this person: from age 70 the
+    /// higher of the two cut-offs.
+    pub fn loss_cut(&self, older: bool) -> f64 {
+        if older {
+            self.loss_bmi_at_least.max(self.loss_bmi_at_least_70_plus)
+        } else {
+            self.loss_bmi_at_least
         }
     }
 
@@ -224,6 +254,11 @@ pub struct State {
     /// test allows for chance (its `regain_verdict` is `regaining`), whatever the last four
     /// weeks' slope says.
     pub regained: bool,
+    /// The last four weeks' slope interval lies wholly above zero: the weight is still going
+    /// up, even where the plateau band calls the pace small.
+    pub still_rising: bool,
+    /// Aged 70 or over at the period's end (cohortpress_metric_outcomes::OLDER_ADULT_AGE).
+    pub older: bool,
 }
 
 /// Why maintenance is the goal.
@@ -289,10 +324,14 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
         return Phase::Clinician;
     }
     // A rise confirmed by level counts when the last four weeks cannot speak for themselves
-    // (sparse weigh-ins, or a slope too uncertain to call); a trend that has clearly levelled
-    // off again after the rise is a plateau, met with the plateau's options.
+    // (sparse weigh-ins, or a slope too uncertain to call) or show the weight still going up
+    // (a slope interval above zero, small enough for the plateau band: 2.2 kg back up and
+    // +0.19 kg/week, 95 % 0.02 to 0.35, was met with a 1,050 kcal loss option); a trend that has
+    // levelled off again after the rise is a plateau, met with the plateau's options.
     if s.status == TrendStatus::Regaining
-        || (s.regained && matches!(s.status, TrendStatus::Insufficient | TrendStatus::Unclear))
+        || (s.regained
+            && (s.still_rising
+                || matches!(s.status, TrendStatus::Insufficient | TrendStatus::Unclear)))
     {
         return Phase::Regain;
     }
@@ -306,7 +345,7 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
     if change <= s.target_percent {
         return Phase::Maintain(MaintainWhy::TargetReached);
     }
-    if bmi < t.loss_bmi_at_least {
+    if bmi < t.loss_cut(s.older) {
         return Phase::Maintain(MaintainWhy::BmiBelowCutoff);
     }
     match s.status {
@@ -321,7 +360,7 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
 /// no loss milestone still to reach.
 pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
     s.bmi
-        .is_some_and(|b| b < t.loss_bmi_at_least || b < t.underweight_bmi_below)
+        .is_some_and(|b| b < t.loss_cut(s.older) || b < t.underweight_bmi_below)
         || s.clinical_flags.iter().any(|c| c == "pregnancy")
 }
 
@@ -329,7 +368,7 @@ pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
 pub fn loss_is_goal(s: &State, t: &Thresholds) -> bool {
     s.target_percent < 0.0
         && s.change_percent.is_none_or(|c| c > s.target_percent)
-        && s.bmi.is_some_and(|b| b >= t.loss_bmi_at_least)
+        && s.bmi.is_some_and(|b| b >= t.loss_cut(s.older))
         && !bmi_rules_out_loss(s, t)
 }
 
@@ -425,7 +464,16 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
             .as_ref()
             .map_or(TrendStatus::Insufficient, |t| t.status.into()),
         regained: v.trend.as_ref().is_some_and(regain_confirmed),
+        still_rising: v.trend.as_ref().is_some_and(still_rising),
+        older: data.profile.age_on(plan.period.to) >= cohortpress_metric_outcomes::OLDER_ADULT_AGE,
     }
+}
+
+/// Whether the last four weeks' slope interval lies wholly above zero, in a window the trend
+/// module gives a verdict on (with too few weigh-ins the report says it cannot tell, and does
+/// not read the slope).
+pub fn still_rising(t: &TrendView) -> bool {
+    t.status != Status::InsufficientData && t.slope_kg_per_week.lower.is_some_and(|l| l > 0.0)
 }
 
 /// Whether the trend module's level test confirms a rise from the lowest trend weight.
@@ -485,7 +533,14 @@ struct Facts {
     activity_target: f64,
     lab_in_diabetes_range: bool,
     glucose_lowering: bool,
+    /// The day of the last weigh-in when it is [`RECENT_WEIGH_IN_DAYS`] or more before the
+    /// period's end: the trend weight is then that day's, not a current one.
+    stale_since: Option<NaiveDate>,
 }
+
+/// Days after which a last weigh-in no longer gives a current weight: the last four weeks of
+/// the period, the window in which the group report counts someone as having an outcome.
+pub const RECENT_WEIGH_IN_DAYS: f64 = 28.0;
 
 /// Builds the guidance section.
 pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) -> GuidanceView {
@@ -531,6 +586,10 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .flags
             .iter()
             .any(|f| f == GLUCOSE_LOWERING_FLAG),
+        stale_since: trend
+            .and_then(|t| t.days_since_last_weigh_in)
+            .filter(|d| *d >= RECENT_WEIGH_IN_DAYS)
+            .map(|d| plan.period.to - chrono::Duration::days(d.round() as i64)),
     };
     compose(phase, &state, &t, &facts)
 }
@@ -629,13 +688,18 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
         Phase::KeepGoing => keep_going(t, f, floor),
         Phase::RestartLoss => restart_loss(t, f, floor),
     };
+    // Read before any amount, not after it: the options come between the paragraphs and the
+    // closing lines, and "eat about 350 kcal a day less" stood above "please check with the
+    // clinician who prescribes it before eating less" (demo seed 11, SG-038, June: a
+    // glucose-lowering medicine and a lab value in the diabetes range; a sulfonylurea or
+    // insulin dose set for the old intake can then lower blood sugar too far — common practice).
     if f.lab_in_diabetes_range {
-        g.closing.push(
+        g.paragraphs.push(
             "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".into(),
         );
     }
     if f.glucose_lowering {
-        g.closing.push(
+        g.paragraphs.push(
             "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".into(),
         );
     }
@@ -684,6 +748,9 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     // while the last four weeks cannot say whether it goes on. The rise itself, with its range,
     // stands in the headline and the summary above; the section does not print it a third time.
     let opening = match state.status {
+        s if state.regained && s != TrendStatus::Regaining && state.still_rising => format!(
+            "Your weight has come back up from its lowest point, as shown above, and it is still edging up{rate} over the last four weeks. This happens to most people at some point; the first step is to steady it where it is now."
+        ),
         s if state.regained && s != TrendStatus::Regaining => format!(
             "Your weight has come back up from its lowest point, as shown above. {} This happens to most people at some point; the first step is to steady it where it is now.",
             if s == TrendStatus::Insufficient {
@@ -766,14 +833,24 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         ));
     }
     if loss_is_goal(state, t) {
-        g.closing.push(
-            "Once your weight is steady again, next month's report will look at what it would take to get back to a steady loss.".into(),
-        );
+        // "Back to" a loss only for someone who has lost: a weight that has only gone up since
+        // enrolment (no prior loss, no rise from a lower point) has no loss to return to.
+        let lost_before = state.regained || state.change_percent.is_some_and(|c| c < 0.0);
+        g.closing.push(format!(
+            "Once your weight is steady again, next month's report will look at what it would take to {} a steady loss.",
+            if lost_before { "get back to" } else { "start" }
+        ));
     }
     g
 }
 
-fn maintain_sentence(f: &Facts, floor: f64, losing: bool, t: &Thresholds) -> Option<String> {
+fn maintain_sentence(
+    f: &Facts,
+    floor: f64,
+    losing: bool,
+    too_fast: bool,
+    t: &Thresholds,
+) -> Option<String> {
     let tdee = f.tdee?;
     let hold = fmt::round_to(tdee.value, KCAL_STEP);
     if hold < floor {
@@ -793,10 +870,30 @@ fn maintain_sentence(f: &Facts, floor: f64, losing: bool, t: &Thresholds) -> Opt
         ),
         _ => String::new(),
     };
-    let mut s = format!(
-        "By the energy-balance model, about {} a day holds your current weight with your present activity{range}.",
-        fmt::kcal(hold)
-    );
+    // Weeks after the last weigh-in there is no current weight or present activity to speak
+    // of (hand-made E12, no record since 15 Jul, read "holds your current weight" in September).
+    let mut s = match f.stale_since {
+        Some(d) => format!(
+            "By the energy-balance model, about {} a day would hold the weight of your last weigh-in on {}{range}.",
+            fmt::kcal(hold),
+            fmt::date(d)
+        ),
+        None => format!(
+            "By the energy-balance model, about {} a day holds your current weight with your present activity{range}.",
+            fmt::kcal(hold)
+        ),
+    };
+    // A range whose lower end is under the floor must not read as leave to eat that little:
+    // the floor is checked on the uncertain side, as for every amount in this section.
+    if tdee
+        .lower
+        .is_some_and(|l| fmt::floor_to(l, KCAL_STEP) < floor)
+    {
+        s.push_str(&format!(
+            " Whatever your weigh-ins show, please do not eat less than {} a day without talking to a licensed clinician.",
+            fmt::kcal(floor)
+        ));
+    }
     if losing
         && let Some(b) = f.balance
         && let Some(upper) = b.upper
@@ -806,8 +903,14 @@ fn maintain_sentence(f: &Facts, floor: f64, losing: bool, t: &Thresholds) -> Opt
         // (the smallest deficit the interval allows).
         let more = fmt::floor_to(-upper, KCAL_STEP);
         if more >= t.min_intake_change_kcal {
+            // Stopping a loss past the safe pace is not left to the reader's wishes.
             s.push_str(&format!(
-                " If you would like to stop losing, eating about {} a day more than now is a safe first step.",
+                " {}, eating about {} a day more than now is a safe first step.",
+                if too_fast {
+                    "To slow the loss"
+                } else {
+                    "If you would like to stop losing"
+                },
                 fmt::kcal(more)
             ));
         }
@@ -841,6 +944,20 @@ fn maintain(
             fmt::fixed(state.target_percent.abs(), 0),
             fmt::fixed(change.abs(), 1)
         ),
+        // From 70 the cut-off is the older adults' one, and the WHO class is not the reason.
+        MaintainWhy::BmiBelowCutoff
+            if state.older
+                && t.loss_cut(true) > t.loss_bmi_at_least
+                && state.bmi.is_some_and(|b| b >= t.loss_bmi_at_least) =>
+        {
+            format!(
+                "Your BMI is {}below {}. From the age of 70, losing weight at a BMI below {} is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing {}. The aim from here is to hold your weight.",
+                if lost { "now " } else { "" },
+                fmt::fixed(t.loss_cut(true), 0),
+                fmt::fixed(t.loss_cut(true), 0),
+                if lost { "more" } else { "weight" }
+            )
+        }
         MaintainWhy::BmiBelowCutoff => format!(
             "Your BMI is {}below {}, in the range the WHO calls normal weight, so this report does not suggest losing {}. The aim from here is to hold your weight.",
             if lost { "now " } else { "" },
@@ -852,16 +969,23 @@ fn maintain(
         }
     });
     let losing = state.status == TrendStatus::Losing;
+    // A loss that may be faster than the safe pace is named as such here too: someone past
+    // their target or below BMI 25 who is losing fast is the last person to leave without it.
+    let fast = if losing { too_fast(t, f) } else { None };
     if losing {
+        let decimals = pace_decimals(f, fast);
         let rate = f
             .slope
-            .map(|s| format!(" (about {})", rate_words(s.value, f.units)))
+            .map(|s| format!(" (about {})", rate_words_to(s.value, f.units, decimals)))
             .unwrap_or_default();
         g.paragraphs.push(format!(
             "Your weight is still coming down{rate}, and it does not need to."
         ));
+        if let Some(max) = fast {
+            g.paragraphs.push(pace_caution(max, f, decimals));
+        }
     }
-    if let Some(s) = maintain_sentence(f, floor, losing, t) {
+    if let Some(s) = maintain_sentence(f, floor, losing, fast.is_some(), t) {
         g.paragraphs.push(s);
     }
     if state.status == TrendStatus::Insufficient {
@@ -882,19 +1006,38 @@ fn maintain(
     g
 }
 
-fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
-    let mut g = empty(Phase::KeepGoing, "What to try next", floor);
-    // The safe-pace limit, when the loss may be faster than it (the slope's careful end).
-    let too_fast = match (f.slope, f.weight_kg) {
+/// The safe-pace limit for this person, kg/week, when their loss may be faster than it (at the
+/// fast end of the slope's interval); `None` otherwise. One test for every phase that describes
+/// a falling weight.
+fn too_fast(t: &Thresholds, f: &Facts) -> Option<f64> {
+    match (f.slope, f.weight_kg) {
         (Some(s), Some(w)) if s.lower.unwrap_or(s.value) < -t.max_rate(w) => Some(t.max_rate(w)),
         _ => None,
-    };
-    // The rate and the limit to the decimals that tell them apart: "about 0.8 kg a week" against
-    // "a limit of about 0.8 kg a week" read as the same pace.
-    let decimals = match (f.slope, too_fast) {
+    }
+}
+
+/// Decimals for a rate printed beside the safe-pace limit `max`: "about 0.8 kg a week" against
+/// "a limit of about 0.8 kg a week" read as the same pace, so both get two when one would not
+/// tell them apart.
+fn pace_decimals(f: &Facts, max: Option<f64>) -> usize {
+    match (f.slope, max) {
         (Some(s), Some(max)) if rate_words(s.value, f.units) == rate_words(max, f.units) => 2,
         _ => 1,
-    };
+    }
+}
+
+/// The caution for a loss that may be faster than the safe limit `max`.
+fn pace_caution(max: f64, f: &Facts, decimals: usize) -> String {
+    format!(
+        "The pace may be faster than the usual safe limit of about {}. If it stays this fast for a few more weeks, please talk to the program staff.",
+        rate_words_to(max, f.units, decimals)
+    )
+}
+
+fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
+    let mut g = empty(Phase::KeepGoing, "What to try next", floor);
+    let too_fast = too_fast(t, f);
+    let decimals = pace_decimals(f, too_fast);
     let rate = f
         .slope
         .map(|s| format!(", at about {}", rate_words_to(s.value, f.units, decimals)))
@@ -904,10 +1047,7 @@ fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         Some(max) => {
             g.paragraphs
                 .push(format!("Your weight is coming down{rate}."));
-            g.paragraphs.push(format!(
-                "The pace may be faster than the usual safe limit of about {}. If it stays this fast for a few more weeks, please talk to the program staff.",
-                rate_words_to(max, f.units, decimals)
-            ));
+            g.paragraphs.push(pace_caution(max, f, decimals));
         }
         None => g.paragraphs.push(format!(
             "Your weight is coming down{rate}. There is nothing you need to change: keep going with the habits that are working for you."
@@ -1072,6 +1212,8 @@ mod tests {
             target_percent: -5.0,
             status,
             regained: false,
+            still_rising: false,
+            older: false,
         }
     }
 
@@ -1286,6 +1428,7 @@ mod tests {
             activity_target: 150.0,
             lab_in_diabetes_range: false,
             glucose_lowering: false,
+            stale_since: None,
         }
     }
 
@@ -1471,6 +1614,182 @@ mod tests {
     }
 
     #[test]
+    fn medical_cautions_come_before_the_amounts() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.glucose_lowering = true;
+        f.lab_in_diabetes_range = true;
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert!(!g.options.is_empty());
+        assert!(
+            g.closing
+                .iter()
+                .all(|c| !c.contains("blood sugar") && !c.contains("diabetes")),
+            "{:?}",
+            g.closing
+        );
+        let n = g.paragraphs.len();
+        assert_eq!(
+            g.paragraphs[n - 2..],
+            [
+                "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".to_string(),
+                "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".to_string(),
+            ]
+        );
+    }
+
+    #[test]
+    fn a_rise_without_an_earlier_loss_is_not_told_to_get_back_to_one() {
+        // Hand-made E08: +10.7 % since enrolment, rising 0.4 kg a week, never lower than at
+        // the start: "next month's report will look at what it would take to get back to a
+        // steady loss".
+        let t = Thresholds::default();
+        let mut s = st(Regaining);
+        s.change_percent = Some(10.7);
+        let f = facts();
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert_eq!(
+            g.closing.last().unwrap(),
+            "Once your weight is steady again, next month's report will look at what it would take to start a steady loss."
+        );
+        s.change_percent = Some(-2.0);
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert!(
+            g.closing
+                .last()
+                .unwrap()
+                .contains("get back to a steady loss")
+        );
+    }
+
+    #[test]
+    fn a_holding_intake_after_weeks_without_records_names_the_last_weigh_in() {
+        let t = Thresholds::default();
+        let mut s = st(Insufficient);
+        s.bmi = Some(29.9);
+        s.change_percent = Some(-7.3);
+        let mut f = facts();
+        f.stale_since = NaiveDate::from_ymd_opt(2026, 7, 15);
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("By the energy-balance model, about 2,000 kcal a day would hold the weight of your last weigh-in on 15 Jul 2026."),
+            "{all}"
+        );
+        assert!(!all.contains("current weight"), "{all}");
+    }
+
+    #[test]
+    fn a_holding_range_that_reaches_under_the_floor_carries_the_floor() {
+        // A woman of 69, 140 cm and 40.5 kg, steady: "about 1,400 kcal a day holds your current
+        // weight … (likely between 1,150 and 1,650 kcal, so let your weekly weigh-ins guide
+        // you)". The range's lower end, under the 1,200 kcal floor, was printed with the
+        // weigh-ins named as the guide and nothing about the floor.
+        let t = Thresholds::default();
+        let mut s = st(Stable);
+        s.bmi = Some(22.8);
+        s.change_percent = Some(-0.2);
+        let mut f = facts();
+        f.tdee = Some(Est {
+            value: 1400.0,
+            lower: Some(1110.0),
+            upper: Some(1690.0),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("about 1,400 kcal a day holds your current weight with your present activity (likely between 1,100 and 1,700 kcal, so let your weekly weigh-ins guide you). Whatever your weigh-ins show, please do not eat less than 1,200 kcal a day without talking to a licensed clinician."),
+            "{all}"
+        );
+        // A range above the floor needs no such line.
+        f.tdee = Some(Est {
+            value: 2010.0,
+            lower: Some(1630.0),
+            upper: Some(2390.0),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(!all.contains("please do not eat less"), "{all}");
+    }
+
+    #[test]
+    fn from_70_a_bmi_under_30_is_held_not_reduced() {
+        // A woman of 73 at BMI 27 on a plateau, 2 % down, target −5 %: the report offered ways
+        // to restart a loss of 0.5 kg a week. In older adults who are overweight but not obese,
+        // weight-reducing diets are to be avoided (ESPEN 2019 geriatrics guideline, from memory).
+        let t = Thresholds::default();
+        let mut s = st(Plateau);
+        s.bmi = Some(27.0);
+        s.older = true;
+        assert_eq!(decide(&s, &t), Phase::Maintain(MaintainWhy::BmiBelowCutoff));
+        assert!(bmi_rules_out_loss(&s, &t));
+        assert!(!loss_is_goal(&s, &t));
+        let g = compose(decide(&s, &t), &s, &t, &facts());
+        assert!(g.options.is_empty());
+        assert_eq!(
+            g.paragraphs[0],
+            "Your BMI is now below 30. From the age of 70, losing weight at a BMI below 30 is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing more. The aim from here is to hold your weight."
+        );
+        // Under 70, or at BMI 30 or more: loss may still be the goal.
+        s.older = false;
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+        s.older = true;
+        s.bmi = Some(31.0);
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+        // Below 25 the WHO class is the reason, as for everyone.
+        s.bmi = Some(23.0);
+        let g = compose(decide(&s, &t), &s, &t, &facts());
+        assert!(
+            g.paragraphs[0]
+                .starts_with("Your BMI is now below 25, in the range the WHO calls normal weight"),
+            "{}",
+            g.paragraphs[0]
+        );
+    }
+
+    #[test]
+    fn a_rise_still_going_on_within_the_plateau_band_is_met_as_a_rise() {
+        // Sample seed 7, SG-227, September: 2.2 kg back up from the lowest trend weight (level
+        // test confirms), last four weeks +0.19 kg/week (95 % 0.02 to 0.35) at 117 kg, inside
+        // the plateau band of ±0.29: the report offered "Eat about 1,050 kcal a day less" to
+        // restart a loss instead of steadying the weight first.
+        let t = Thresholds::default();
+        let mut s = st(Plateau);
+        s.bmi = Some(38.1);
+        s.change_percent = Some(-3.2);
+        s.regained = true;
+        s.still_rising = true;
+        assert_eq!(decide(&s, &t), Phase::Regain);
+        let mut f = facts();
+        f.slope = Some(Est {
+            value: 0.19,
+            lower: Some(0.02),
+            upper: Some(0.35),
+        });
+        f.balance = Some(Est {
+            value: 212.0,
+            lower: Some(20.0),
+            upper: Some(400.0),
+        });
+        let g = compose(decide(&s, &t), &s, &t, &f);
+        assert_eq!(
+            g.paragraphs[0],
+            "Your weight has come back up from its lowest point, as shown above, and it is still edging up, by about 0.2 kg a week over the last four weeks. This happens to most people at some point; the first step is to steady it where it is now."
+        );
+        assert_eq!(g.options[0].intake_cut_kcal, 200.0);
+        // Levelled off after the rise (the interval reaches zero): the plateau's options.
+        s.still_rising = false;
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+        // Still rising without a confirmed rise from the lowest point: unchanged.
+        s.still_rising = true;
+        s.regained = false;
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+    }
+
+    #[test]
     fn regain_is_met_with_what_holds_the_weight_above_the_floor() {
         let t = Thresholds::default();
         let mut f = facts();
@@ -1506,6 +1825,59 @@ mod tests {
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.options.is_empty(), "{:?}", g.options);
         assert!(g.paragraphs.iter().any(|p| p.contains("not suggested")));
+    }
+
+    #[test]
+    fn a_fast_loss_past_the_target_is_named_in_the_maintenance_section_too() {
+        // Target reached at BMI 20.4, still losing 0.99 kg a week at 66.2 kg: past the safe
+        // pace of 1 % of body weight (0.66 kg a week). The maintenance section said only "it
+        // does not need to" and "if you would like to stop losing …".
+        let t = Thresholds::default();
+        let mut s = st(Losing);
+        s.bmi = Some(20.4);
+        s.change_percent = Some(-28.4);
+        let mut f = facts();
+        f.weight_kg = Some(66.2);
+        f.slope = Some(Est {
+            value: -0.99,
+            lower: Some(-1.2),
+            upper: Some(-0.78),
+        });
+        f.balance = Some(Est {
+            value: -790.0,
+            lower: Some(-1200.0),
+            upper: Some(-250.0),
+        });
+        let g = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f);
+        assert_eq!(
+            g.paragraphs[1..3],
+            [
+                "Your weight is still coming down (about 1.0 kg a week), and it does not need to.".to_string(),
+                "The pace may be faster than the usual safe limit of about 0.7 kg a week. If it stays this fast for a few more weeks, please talk to the program staff.".to_string(),
+            ]
+        );
+        let all = g.paragraphs.join(" ");
+        assert!(
+            all.contains(
+                " To slow the loss, eating about 250 kcal a day more than now is a safe first step."
+            ),
+            "{all}"
+        );
+        assert!(!all.contains("If you would like"), "{all}");
+        // Within the safe pace: no caution, and stopping is the reader's choice.
+        f.slope = Some(Est {
+            value: -0.4,
+            lower: Some(-0.55),
+            upper: Some(-0.25),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(!all.contains("safe limit"), "{all}");
+        assert!(
+            all.contains("If you would like to stop losing, eating about 250 kcal"),
+            "{all}"
+        );
     }
 
     #[test]

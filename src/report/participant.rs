@@ -233,7 +233,7 @@ pub fn build(
             // weeks to show.
             Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
         ),
-        summary: summary(&v, units),
+        summary: summary(&v, units, plan.period.to),
         milestones: milestones(v.outcomes.as_ref(), loss_goal),
         weight_chart: weight_view,
         energy: energy_view,
@@ -273,15 +273,26 @@ fn person_facts(p: &Profile, units: UnitSystem) -> Vec<Kv> {
     facts
 }
 
-/// Key figures: current and starting weight, change, recent rate, BMI.
-fn summary(v: &BuiltinViews, units: UnitSystem) -> Vec<Kv> {
+/// Key figures: current and starting weight, change, recent rate, BMI. `to` is the period's
+/// last day.
+fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
     let (trend, outcomes) = (v.trend.as_ref(), v.outcomes.as_ref());
     let mut summary = Vec::new();
     if let Some(w) = trend
         .and_then(|t| t.current_weight_kg.value)
         .or(outcomes.and_then(|o| o.current_weight_kg.value))
     {
-        summary.push(Kv::new("Current weight (trend)", &fmt::weight(w, units)));
+        // The trend ends at the last weigh-in: months later it is that day's weight, not a
+        // current one (someone who stopped recording in July read "Current weight" in a
+        // September report).
+        let label = match trend.and_then(|t| t.days_since_last_weigh_in) {
+            Some(d) if d >= guidance::RECENT_WEIGH_IN_DAYS => format!(
+                "Weight at your last weigh-in ({}, trend)",
+                fmt::date(to - chrono::Duration::days(d.round() as i64))
+            ),
+            _ => "Current weight (trend)".to_string(),
+        };
+        summary.push(Kv::new(&label, &fmt::weight(w, units)));
     }
     if let Some(b) = outcomes.and_then(|o| o.baseline_weight_kg) {
         summary.push(Kv::new("Starting weight", &fmt::weight(b, units)));
@@ -543,9 +554,18 @@ fn headline(
             fmt::fixed(fmt::weight_value(rate.unwrap_or(0.0), units).abs(), 2),
             fmt::weight_unit(units)
         ),
+        // A plateau is a pace inside the plateau band, not necessarily none: a slope whose
+        // whole interval is above zero is named as the slow rise it is, not "held steady"
+        // (sample seed 7, SG-227: "held steady" above +0.19 kg/week, 95 % 0.02 to 0.35).
+        Status::Plateau if trend.is_some_and(guidance::still_rising) => format!(
+            "Your weight has edged up over the last four weeks ({rate_s}), slowly enough to count as a plateau."
+        ),
         Status::Plateau => {
             "Your weight has held steady over the last four weeks (a plateau).".to_string()
         }
+        Status::Stable if trend.is_some_and(guidance::still_rising) => format!(
+            "Your weight has been nearly stable over the last four weeks, edging up slowly ({rate_s})."
+        ),
         Status::Regaining => {
             format!("Your weight trend has been rising over the last four weeks ({rate_s}).")
         }
@@ -1192,10 +1212,14 @@ mod activity_unread_tests {
             adherence: None,
             outcomes: None,
         };
-        let row = summary(&v, UnitSystem::Metric)
-            .into_iter()
-            .find(|k| k.label == "Back up from your lowest")
-            .expect("a summary row for the rise");
+        let row = summary(
+            &v,
+            UnitSystem::Metric,
+            NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+        )
+        .into_iter()
+        .find(|k| k.label == "Back up from your lowest")
+        .expect("a summary row for the rise");
         assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
         // Not confirmed by the level test: nothing is said of a rise.
         t.regain_verdict = Some(RegainVerdict::NotRegaining);
@@ -1207,6 +1231,75 @@ mod activity_unread_tests {
         t.slope_kg_per_week.value = Some(0.3);
         let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
         assert!(!h.contains("lowest point"), "{h}");
+    }
+
+    /// Hand-made E12 stopped recording on 15 Jul 2026; the September report's summary read
+    /// "Current weight (trend) 92.5 kg", that day's trend weight.
+    #[test]
+    fn a_weight_from_months_ago_is_not_called_current() {
+        let mut t = TrendView {
+            status: Status::InsufficientData,
+            ..TrendView::default()
+        };
+        t.current_weight_kg.value = Some(92.5);
+        t.days_since_last_weigh_in = Some(77.0);
+        let v = BuiltinViews {
+            trend: Some(t.clone()),
+            energy: None,
+            adherence: None,
+            outcomes: None,
+        };
+        let to = NaiveDate::from_ymd_opt(2026, 9, 30).unwrap();
+        let row = &summary(&v, UnitSystem::Metric, to)[0];
+        assert_eq!(
+            row.label,
+            "Weight at your last weigh-in (15 Jul 2026, trend)"
+        );
+        assert_eq!(row.value, "92.5 kg");
+        t.days_since_last_weigh_in = Some(3.0);
+        let v = BuiltinViews {
+            trend: Some(t),
+            ..v
+        };
+        assert_eq!(
+            summary(&v, UnitSystem::Metric, to)[0].label,
+            "Current weight (trend)"
+        );
+    }
+
+    /// Sample seed 7, SG-227, September: "Your weight has held steady over the last four weeks
+    /// (a plateau)" above "Recent rate +0.19 kg/week" whose 95 % interval (0.02 to 0.35) lies
+    /// wholly above zero, inside the plateau band of a 117 kg person.
+    #[test]
+    fn a_plateau_that_is_still_edging_up_is_not_called_steady() {
+        let mut t = TrendView {
+            status: Status::Plateau,
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week = Interval {
+            value: Some(0.19),
+            lower: Some(0.02),
+            upper: Some(0.35),
+        };
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        assert_eq!(
+            h,
+            "Your weight has edged up over the last four weeks (+0.19 kg/week), slowly enough to count as a plateau."
+        );
+        t.status = Status::Stable;
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        assert_eq!(
+            h,
+            "Your weight has been nearly stable over the last four weeks, edging up slowly (+0.19 kg/week)."
+        );
+        // An interval that reaches zero: held steady, as before.
+        t.status = Status::Plateau;
+        t.slope_kg_per_week.lower = Some(-0.02);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        assert_eq!(
+            h,
+            "Your weight has held steady over the last four weeks (a plateau)."
+        );
     }
 
     /// "Too few recent weigh-ins to see how your weight moved" stood above "Recent rate (last
@@ -1225,9 +1318,13 @@ mod activity_unread_tests {
             outcomes: None,
         };
         let has_rate = |v: &BuiltinViews| {
-            summary(v, UnitSystem::Metric)
-                .iter()
-                .any(|k| k.label.starts_with("Recent rate"))
+            summary(
+                v,
+                UnitSystem::Metric,
+                NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+            )
+            .iter()
+            .any(|k| k.label.starts_with("Recent rate"))
         };
         assert!(!has_rate(&views(&t)));
         t.status = Status::Regaining;

@@ -884,8 +884,20 @@ fn every_participant_report_shows_the_tidy_figures() {
         let kg = num(row, "trend.current_weight_kg")
             .or_else(|| num(row, "outcomes.current_weight_kg"))
             .unwrap_or_else(|| panic!("{id}: no current weight"));
+        // A weight from a last weigh-in four weeks or more before the period's end is labelled
+        // with that day, not as current.
+        let label = match num(row, "trend.days_since_last_weigh_in") {
+            Some(d) if d >= 28.0 => format!(
+                "Weight at your last weigh-in ({}, trend)",
+                fmt::date(
+                    chrono::NaiveDate::parse_from_str(&row["period_to"], "%Y-%m-%d").unwrap()
+                        - chrono::Duration::days(d.round() as i64)
+                )
+            ),
+            _ => "Current weight (trend)".to_string(),
+        };
         assert_eq!(
-            kv_value(&html, "Current weight (trend)").map(|v| unescape(&v)),
+            kv_value(&html, &label).map(|v| unescape(&v)),
             Some(fmt::weight(kg, UnitSystem::Metric)),
             "{id}"
         );

@@ -42,6 +42,10 @@ use cohortpress_metric_api::{
 use cohortpress_metric_trend::view::{PeriodKind, TrendView};
 use std::collections::BTreeMap;
 
+/// The profile flag that notes a pregnancy (README, profile.yaml `flags`; the `outcomes`
+/// module raises its clinical `pregnancy` flag from the same word).
+const PREGNANCY_FLAG: &str = "pregnant";
+
 /// β = β_TEF + β_AT: the part of an intake change the body gives back (Hall et al. 2011).
 const BETA: f64 = BETA_TEF + BETA_AT;
 /// z quantile of the standard normal for a two-sided 95 % interval.
@@ -338,6 +342,9 @@ struct Person<'a> {
     trend: Trend,
     /// `max_sustained_intake_x_rmr` (see [`MAX_SUSTAINED_INTAKE_X_RMR`]).
     max_intake_x_rmr: f64,
+    /// The profile notes a pregnancy: weight change then includes the baby, the placenta and
+    /// extra fluid, which the adult energy-balance model does not describe.
+    pregnant: bool,
 }
 
 impl Person<'_> {
@@ -475,7 +482,9 @@ impl Person<'_> {
     /// resting energy). The one test for the window, the weekly table and the plateau table.
     fn implausible(&self, bw: f64, d: NaiveDate, intake: f64) -> Option<Unexplained> {
         let ceiling = self.max_intake_x_rmr * self.rmr_at(bw, d);
-        if intake < 0.0 {
+        if self.pregnant {
+            Some(Unexplained::Pregnancy)
+        } else if intake < 0.0 {
             Some(Unexplained::Fall)
         } else if intake > ceiling {
             Some(Unexplained::Rise { intake, ceiling })
@@ -550,7 +559,16 @@ pub(crate) fn run(
     p.lin = LinearisedModel::from_baseline(start.bw0, start.fm0, start.rmr0, pal_post);
 
     let cur = current_state(ctx, &s, &p, &baseline, trend_out.is_none(), start.bw0);
-    if let Some(why) = cur.unexplained {
+    if cur.unexplained == Some(Unexplained::Pregnancy) {
+        out.push_flag(
+            EnergyFlag::NotModelled.as_str(),
+            FlagSeverity::Info,
+            "The profile notes a pregnancy. Weight change in pregnancy includes the baby, the \
+             placenta and extra fluid, which this energy-balance model for adults does not \
+             describe, so the intake implied by the weight trend, what it says about the food \
+             logs, the forecast and the options are not shown.",
+        );
+    } else if let Some(why) = cur.unexplained {
         let what = match why {
             Unexplained::Fall => "fell faster than eating nothing at all would explain. A \
                                   change of scale or clothing, a mistyped weigh-in or a shift \
@@ -564,6 +582,7 @@ pub(crate) fn run(
                 intake.round(),
                 s.max_intake_x_rmr
             ),
+            Unexplained::Pregnancy => unreachable!("handled above"),
         };
         out.push_flag(
             EnergyFlag::UnexplainedWeightChange.as_str(),
@@ -668,6 +687,7 @@ fn start<'a>(
         lin: LinearisedModel::from_baseline(bw0, fm0, rmr0, s.base_pal),
         trend,
         max_intake_x_rmr: s.max_intake_x_rmr,
+        pregnant: data.profile.flags.iter().any(|f| f == PREGNANCY_FLAG),
     };
     Some((
         person,
@@ -715,6 +735,9 @@ enum Unexplained {
     Fall,
     /// Above the most a person can take in and absorb over weeks (kcal/d, both).
     Rise { intake: f64, ceiling: f64 },
+    /// Any weight change in pregnancy: not adult energy balance (IOM 2009, Weight Gain During
+    /// Pregnancy — from memory).
+    Pregnancy,
 }
 
 /// SD of a slope from its 95 % band.

@@ -325,6 +325,12 @@ impl MetricModule for EnergyModule {
                 "",
                 "Weight changed faster than energy balance explains",
             ),
+            OutputSpec::new(
+                "not_modelled",
+                "flag",
+                "",
+                "Energy-balance estimates not made (pregnancy)",
+            ),
         ];
         ModuleSpec {
             id: "energy".into(),

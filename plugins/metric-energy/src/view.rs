@@ -116,6 +116,8 @@ code_enum! {
         LowLoggedIntake = "low_logged_intake" => "Logged intake below the intake floor",
         /// Weight changed faster than energy balance explains (a fall beyond a zero intake, a rise beyond the most a person can take in).
         UnexplainedWeightChange = "unexplained_weight_change" => "Weight changed faster than energy balance explains",
+        /// The energy-balance estimates are not made for this person (a pregnancy).
+        NotModelled = "not_modelled" => "Energy-balance estimates not made (pregnancy)",
     }
 }
 

@@ -46,7 +46,9 @@
 //!   status is `losing`, or its slope's whole 95 % interval is below zero). BMI 18.5–20 is the
 //!   band the Malnutrition Universal Screening Tool already scores as a risk, and weight lost
 //!   on top of it adds to the score (BAPEN 2003, MUST; from memory); a report must not read as
-//!   encouragement to go on losing there.
+//!   encouragement to go on losing there. From age 70 (at the period's end) the cut-off is
+//!   `low_bmi_losing_below_70_plus` (22 kg/m²), the GLIM low-BMI criterion for older adults
+//!   (Cederholm et al. 2019, Clin Nutr 38:1–9; from memory).
 //! * `lab_diabetes_range` (clinical) / `lab_prediabetes_range` (notice): judged on the latest
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
@@ -105,6 +107,12 @@ pub const PREGNANCY_FLAG: &str = "pregnant";
 /// Default of `low_bmi_losing_below`, kg/m²: below it a weight trend that is still falling
 /// raises `low_bmi` (BMI 18.5–20 scores a malnutrition risk: MUST, BAPEN 2003; from memory).
 pub const LOW_BMI_LOSING_BELOW: f64 = 20.0;
+/// Default of `low_bmi_losing_below_70_plus`, kg/m²: the same test for people aged 70 or over,
+/// whose BMI counts as low below 22 (GLIM criteria: low BMI < 20 kg/m² under 70 years, < 22 at
+/// 70 and over; Cederholm et al. 2019, Clin Nutr 38:1–9 — from memory).
+pub const LOW_BMI_LOSING_BELOW_70_PLUS: f64 = 22.0;
+/// Age from which `low_bmi_losing_below_70_plus` applies, years (GLIM 2019, as above).
+pub const OLDER_ADULT_AGE: f64 = 70.0;
 
 /// Round-off allowance at cut points (see the crate docs).
 const CUT_EPS: f64 = 1e-9;
@@ -503,6 +511,15 @@ impl MetricModule for OutcomesModule {
                     "BMI below which a weight trend that is still falling is flagged for a \
                      clinician (MUST, BAPEN 2003: BMI 18.5–20 scores a malnutrition risk)",
                 ),
+                SettingSpec::number(
+                    "low_bmi_losing_below_70_plus",
+                    LOW_BMI_LOSING_BELOW_70_PLUS,
+                    "kg/m²",
+                    18.5,
+                    30.0,
+                    "the same for people aged 70 or over at the period's end (GLIM 2019: \
+                     low BMI < 22 kg/m² at 70 and over)",
+                ),
                 SettingSpec {
                     name: "fast_loss_span_days".into(),
                     kind: SettingKind::Integer,
@@ -674,7 +691,7 @@ impl MetricModule for OutcomesModule {
         let fast = push_fast_loss_flag(&mut output, ctx, &w.levels);
         push_fast_gain_flag(&mut output, ctx, &w.levels);
         let low_intake = push_intake_flags(&mut output, ctx, data);
-        push_low_bmi_flag(&mut output, ctx, bmi1, &w);
+        push_low_bmi_flag(&mut output, ctx, bmi1, &w, profile.age_on(ctx.period.to));
         push_lab_flags(&mut output, &labs, profile.sex);
         if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG) && (fast || low_intake) {
             push_medication_flag(&mut output, fast, low_intake);
@@ -1063,6 +1080,7 @@ fn push_low_bmi_flag(
     ctx: &ModuleContext,
     bmi1: Option<f64>,
     w: &Weights,
+    age: f64,
 ) {
     let Some(b) = bmi1 else {
         return;
@@ -1081,23 +1099,47 @@ fn push_low_bmi_flag(
         return;
     }
     let near = ctx.setting_f64("low_bmi_losing_below", LOW_BMI_LOSING_BELOW);
+    let older = age >= OLDER_ADULT_AGE;
+    // From 70 the higher of the two cut-offs: a program that raises the general one keeps it.
+    let near = if older {
+        near.max(ctx.setting_f64("low_bmi_losing_below_70_plus", LOW_BMI_LOSING_BELOW_70_PLUS))
+    } else {
+        near
+    };
     if b < near && w.trend_falling {
         let rate = w
             .trend_rate
             .filter(|r| *r < 0.0)
             .map(|r| format!(" (about {} a week)", kg_lb(-r)))
             .unwrap_or_default();
+        let why = if older {
+            format!(
+                "below {}, where a BMI counts as low at age 70 or over (GLIM)",
+                cut_words(near)
+            )
+        } else {
+            "close to 18.5, the lower limit of the normal range (WHO)".to_string()
+        };
         output.push_flag(
             OutcomesFlag::LowBmi.as_str(),
             FlagSeverity::Clinical,
             format!(
-                "Current BMI is about {:.1} kg/m², close to 18.5, the lower limit of the \
-                 normal range (WHO), and the weight trend is still going down{rate}. Losing \
-                 more at this weight is not advised without a licensed clinician: please \
-                 see one about the loss before going on.",
+                "Current BMI is about {:.1} kg/m², {why}, and the weight trend is still going \
+                 down{rate}. Losing more at this weight is not advised without a licensed \
+                 clinician: please see one about the loss before going on.",
                 bmi_one_decimal(b)
             ),
         );
+    }
+}
+
+/// A BMI cut-off as written: `22`, `21.5` (a decimal only when it has one).
+fn cut_words(v: f64) -> String {
+    let tenths = (v * 10.0).round();
+    if tenths % 10.0 == 0.0 {
+        format!("{:.0}", tenths / 10.0)
+    } else {
+        format!("{:.1}", tenths / 10.0)
     }
 }
 

@@ -620,6 +620,70 @@ fn low_bmi_flag_near_the_floor_while_still_losing() {
     assert_eq!(codes(&run(&c, &p)), vec!["low_bmi"]);
 }
 
+/// A man of 76 at BMI 21.8 who had lost 20 % and was still losing 0.6 kg a week got "Holding
+/// your new weight … if you would like to stop losing" and no caution: the near-floor test
+/// stopped at BMI 20. From 70 a BMI under 22 counts as low (GLIM 2019, from memory), so the
+/// falling trend raises `low_bmi` there; the same record at 45, or the 76-year-old steady, does
+/// not.
+#[test]
+fn low_bmi_while_losing_uses_the_older_adults_cut_off_from_70() {
+    let h2 = 1.72 * 1.72;
+    let mut p = participant(Sex::Male, 172.0);
+    p.profile.age_years = 76.0;
+    let end = 21.8 * h2;
+    p.weights = (0..=28)
+        .step_by(2)
+        .map(|k| weigh(day(k), end + 0.085 * (28 - k) as f64))
+        .collect();
+    let falling = {
+        let out = trend_output(28, 28, -0.6, move |k| end + 0.085 * (28 - k) as f64);
+        let mut t = TrendView::from_output(&out).unwrap();
+        t.status = Status::Losing;
+        t.to_output()
+    };
+    let out = run(&ctx(day(0), day(28), Some(falling.clone())), &p);
+    assert_abs_diff_eq!(
+        out.scalar("bmi_current_kg_m2").unwrap(),
+        21.8,
+        epsilon = 1e-9
+    );
+    assert_eq!(codes(&out), vec!["low_bmi"]);
+    let m = &out.flags[0].message;
+    assert!(
+        m.contains(
+            "about 21.8 kg/m², below 22, where a BMI counts as low at age 70 or over (GLIM)"
+        ),
+        "{m}"
+    );
+    assert!(
+        m.contains("still going down (about 0.6 kg (1.3 lb) a week)"),
+        "{m}"
+    );
+    // At 45 the general cut-off of 20 applies: no flag.
+    p.profile.age_years = 45.0;
+    assert!(
+        run(&ctx(day(0), day(28), Some(falling.clone())), &p)
+            .flags
+            .is_empty()
+    );
+    // At 76 with a level trend: no flag.
+    p.profile.age_years = 76.0;
+    let steady = trend_output(28, 28, 0.0, move |_| end);
+    assert!(
+        run(&ctx(day(0), day(28), Some(steady)), &p)
+            .flags
+            .is_empty()
+    );
+    // The setting moves it: at 21.5 the same 76-year-old is not flagged.
+    let c = ctx_with(
+        day(0),
+        day(28),
+        Some(falling),
+        serde_json::json!({ "low_bmi_losing_below_70_plus": 21.5 }),
+    );
+    assert!(run(&c, &p).flags.is_empty());
+}
+
 fn lab(k: i64, test: LabTest, value: f64, unit: &str, as_written: f64) -> LabResult {
     LabResult {
         date: day(k),

@@ -475,11 +475,27 @@ fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
     out.push_flag(
         TrendFlag::InsufficientData.as_str(),
         FlagSeverity::Info,
-        format!(
-            "Only {days} day(s) with a weigh-in up to {}: at least 3 are needed to estimate a weight trend.",
+        insufficient_words(days, to),
+    );
+}
+
+/// Why there is no trend, in words a participant reads ("Only 0 day(s) with a weigh-in" stood
+/// in the report of someone who keeps only a food log).
+fn insufficient_words(days: usize, to: NaiveDate) -> String {
+    match days {
+        0 => format!(
+            "No weigh-in up to {} yet: at least 3 days with a weigh-in are needed to estimate a weight trend.",
             iso(to)
         ),
-    );
+        1 => format!(
+            "Only 1 day with a weigh-in up to {}: at least 3 are needed to estimate a weight trend.",
+            iso(to)
+        ),
+        n => format!(
+            "Only {n} days with a weigh-in up to {}: at least 3 are needed to estimate a weight trend.",
+            iso(to)
+        ),
+    }
 }
 
 fn steps_table(rows: &[WeighInStepRow]) -> Table {
@@ -1048,21 +1064,11 @@ fn compute_trend(
         "Days since the last weigh-in",
     );
 
-    let mut status = window.map_or(Status::InsufficientData, |w| status_code(&w, e + 1 >= l));
-    // A plateau found on the whole trajectory that is still going at the last weigh-in is the
-    // current status unless the last window shows a clear loss or rise.
     let current_plateau = periods_now
         .iter()
         .rev()
         .find(|p| p.kind == WindowKind::Plateau && p.end + 3 >= last_idx);
-    if current_plateau.is_some()
-        && matches!(
-            status,
-            Status::Stable | Status::Unclear | Status::InsufficientData
-        )
-    {
-        status = Status::Plateau;
-    }
+    let status = current_status(window.as_ref(), e + 1 >= l, current_plateau.is_some());
     out.push_text(names::STATUS, status.as_str(), status.label());
     out.push_scalar(
         names::PLATEAU_CONFIDENCE,
@@ -1233,6 +1239,34 @@ fn status_code(w: &plateau::WindowVerdict, full_window: bool) -> Status {
     }
 }
 
+/// The status of the last window, or `plateau` when a plateau found on the whole trajectory
+/// (judged on tissue: the weigh-ins less the fast weight the food log implies) is still going at
+/// the last weigh-in and the last window shows no clear loss or rise. The weigh-ins themselves
+/// must not contradict it: a window whose mean slope lies beyond the band (a rise or fall of more
+/// than δ a week on the scale, as the report's "recent rate" prints it) is not "held steady",
+/// even when too few weigh-ins or too wide an interval keep the window from a verdict of its
+/// own. Sample seed 7, SG-264, September: "held steady … (a plateau)" above a recent rate of
+/// +0.42 kg/week (95 % 0.06 to 0.77), which also kept a confirmed regain from being met as one.
+fn current_status(
+    window: Option<&plateau::WindowVerdict>,
+    full_window: bool,
+    plateau_now: bool,
+) -> Status {
+    let status = window.map_or(Status::InsufficientData, |w| status_code(w, full_window));
+    let scale_agrees = window.is_none_or(|w| !w.slope.is_finite() || w.slope.abs() <= w.delta);
+    if plateau_now
+        && scale_agrees
+        && matches!(
+            status,
+            Status::Stable | Status::Unclear | Status::InsufficientData
+        )
+    {
+        Status::Plateau
+    } else {
+        status
+    }
+}
+
 fn weigh_in_series(data: &ParticipantData, to: NaiveDate, skipped: &[NaiveDate]) -> Series {
     Series {
         name: names::WEIGH_INS.into(),
@@ -1333,5 +1367,63 @@ mod tests {
         let w = verdict(WindowKind::Plateau, -0.01, -0.02, 0.0);
         assert_eq!(status_code(&w, true), Status::Plateau);
         assert_eq!(status_code(&w, false), Status::InsufficientData);
+    }
+
+    #[test]
+    fn too_few_weigh_ins_are_counted_in_words() {
+        let to = NaiveDate::from_ymd_opt(2026, 9, 30).unwrap();
+        assert_eq!(
+            insufficient_words(0, to),
+            "No weigh-in up to 2026-09-30 yet: at least 3 days with a weigh-in are needed to estimate a weight trend."
+        );
+        assert!(insufficient_words(1, to).starts_with("Only 1 day with a weigh-in up to"));
+        assert!(insufficient_words(2, to).starts_with("Only 2 days with a weigh-in up to"));
+    }
+
+    #[test]
+    fn a_plateau_found_on_tissue_is_not_the_status_while_the_scale_moves_beyond_the_band() {
+        // Too few weigh-ins for a verdict of the window's own, with its mean slope +0.42 kg/week
+        // at a band of ±0.28 kg/week (sample seed 7, SG-264): not "held steady".
+        let rising = verdict(
+            WindowKind::InsufficientData,
+            0.42 / 7.0,
+            0.06 / 7.0,
+            0.77 / 7.0,
+        );
+        let rising = WindowVerdict {
+            delta: 0.28 / 7.0,
+            ..rising
+        };
+        assert_eq!(
+            current_status(Some(&rising), true, true),
+            Status::InsufficientData
+        );
+        // The same on a fall (SG-107: −0.32 kg/week at a band of ±0.28).
+        let falling = WindowVerdict {
+            slope: -0.32 / 7.0,
+            lower: -0.44 / 7.0,
+            upper: -0.20 / 7.0,
+            ..rising
+        };
+        assert_eq!(
+            current_status(Some(&falling), true, true),
+            Status::InsufficientData
+        );
+        // A scale slope inside the band keeps the plateau found on tissue.
+        let flat = WindowVerdict {
+            slope: 0.05 / 7.0,
+            lower: -0.3 / 7.0,
+            upper: 0.4 / 7.0,
+            ..rising
+        };
+        assert_eq!(current_status(Some(&flat), true, true), Status::Plateau);
+        assert_eq!(
+            current_status(Some(&flat), true, false),
+            Status::InsufficientData
+        );
+        // A clear loss stays a loss.
+        let loss = verdict(WindowKind::Loss, -0.05, -0.06, -0.04);
+        assert_eq!(current_status(Some(&loss), true, true), Status::Losing);
+        assert_eq!(current_status(None, true, true), Status::Plateau);
     }
 }

@@ -1028,3 +1028,76 @@ fn weekly_energy_use_uses_the_persons_activity_level() {
     let e = cell_num(weekly, last, "expenditure_kcal_per_day").unwrap();
     assert!((e - rmr * pal).abs() < 1.0, "{e} vs {rmr} × {pal}");
 }
+
+/// A pregnancy noted in the profile (hand-made E06: 80 kg, +0.2 kg a week, logs of about 1,950
+/// kcal/d) printed "Intake implied by your weight trend 2,743 kcal/day", an energy balance of
+/// +217 and "Food logs often differ from what the weight trend shows … worth a conversation
+/// about logging": the gain of pregnancy read as surplus food and the log as under-reported.
+/// The adult energy-balance model does not describe pregnancy, so nothing is read from the
+/// weight trend; the same record without the flag still is.
+#[test]
+fn a_pregnancy_gives_no_implied_intake_and_says_why() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let weights: Vec<f64> = (0..n).map(|i| 80.0 + 0.2 / 7.0 * i as f64).collect();
+    let run = |flags: Vec<String>| {
+        let mut p = profile(Sex::Female, 163.0, 31.0, enrolled);
+        p.flags = flags;
+        let mut data = data(p);
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        data.intake = daily_logs(enrolled, n, 1950.0);
+        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, 0.4, 0.05, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    let usual = run(vec![]);
+    let i = usual.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!(i > 2000.0, "{i}");
+    assert!(usual.flags.iter().all(|f| f.code != "not_modelled"));
+    let out = run(vec!["pregnant".into()]);
+    for name in [
+        "implied_intake_kcal_per_day",
+        "implied_intake_lower_kcal_per_day",
+        "energy_balance_kcal_per_day",
+        "intake_gap_kcal_per_day",
+        "underreporting_percent",
+        "forecast_weight_at_end_kg",
+    ] {
+        assert_eq!(out.scalar(name), None, "{name}");
+    }
+    let flag = out
+        .flags
+        .iter()
+        .find(|f| f.code == "not_modelled")
+        .expect("flag");
+    assert!(
+        flag.message.starts_with("The profile notes a pregnancy."),
+        "{}",
+        flag.message
+    );
+    assert!(
+        out.flags
+            .iter()
+            .all(|f| f.code != "logs_inconsistent_with_trend"
+                && f.code != "unexplained_weight_change"),
+        "{:?}",
+        out.flags
+    );
+    let weekly = out.table("weekly_energy").unwrap();
+    for r in 0..weekly.rows.len() {
+        assert_eq!(
+            cell_num(weekly, r, "implied_intake_kcal_per_day"),
+            None,
+            "week {r}"
+        );
+    }
+    let opt = out.table("options").unwrap();
+    assert_eq!(cell_num(opt, 0, "change_per_day"), None);
+}
