@@ -3,6 +3,7 @@
 //! [`crate::cmd::check`] prints what it found.
 
 use crate::diag::{self, Diagnostic};
+use crate::modules::{self, ModuleSet};
 use crate::participant::{self, LoadedParticipant};
 use crate::program::{self, Program};
 use chrono::NaiveDate;
@@ -72,10 +73,29 @@ pub(crate) fn plural(n: usize) -> &'static str {
     if n == 1 { "" } else { "s" }
 }
 
-/// Loads the program at `root` and every participant (in parallel; results in folder order).
+/// Everything `run`, `merge` and `check` validate about the program itself, in one place so
+/// the three refuse the same programs with the same messages and exit code: the size of
+/// `program.yaml`, the file and its semantic checks ([`program::load_program`]), then its
+/// `modules:` list and their settings ([`modules::build_module_set`]: unknown ids, bad
+/// settings, order, external handshakes, settings two modules must agree on).
+/// Returns the program, its module set and the module warnings, or every problem found.
+pub fn load_program_checked(
+    root: &Path,
+) -> Result<(Program, ModuleSet, Vec<Diagnostic>), Vec<Diagnostic>> {
+    let file = root.join(program::load::PROGRAM_FILE);
+    if let Err(m) = crate::limits::check_size(&file) {
+        return Err(vec![Diagnostic::error(program::load::PROGRAM_FILE, m)]);
+    }
+    let program = program::load_program(root)?;
+    let (modules, warnings) = modules::build_module_set(&program)?;
+    Ok((program, modules, warnings))
+}
+
+/// Loads the program at `root` (checked as a run checks it, modules included:
+/// [`load_program_checked`]) and every participant (in parallel; results in folder order).
 /// Reads only; nothing is computed or written.
 pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
-    let program = program::load_program(root);
+    let program = load_program_checked(root).map(|(p, _, _)| p);
     let Ok(prog) = &program else {
         return CheckReport {
             program,

@@ -5,7 +5,7 @@ use super::shard::{self, ShardSpec};
 use super::{Blame, RunError};
 use crate::diag::Diagnostic;
 use crate::group;
-use crate::modules::{self, ModuleSet};
+use crate::modules::ModuleSet;
 use crate::output::{Access, OutputScope, OutputTarget, Staging, StagingError};
 use crate::program::{self, DefaultPeriod, Format, Program};
 use crate::report::Scope;
@@ -181,18 +181,10 @@ fn invalid(diagnostics: Vec<Diagnostic>) -> PlanError {
     }
 }
 
-/// Loads and checks the program (refusing an oversized `program.yaml` before reading it) and
-/// its modules.
+/// Loads and checks the program and its modules: the same function `check` uses
+/// ([`crate::check::load_program_checked`]), so both refuse the same programs.
 fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
-    let file = root.join(program::load::PROGRAM_FILE);
-    if let Err(m) = crate::limits::check_size(&file) {
-        return Err(invalid(vec![Diagnostic::error(
-            program::load::PROGRAM_FILE,
-            m,
-        )]));
-    }
-    let program = program::load_program(root).map_err(invalid)?;
-    let (modules, warnings) = modules::build_module_set(&program).map_err(invalid)?;
+    let (program, modules, warnings) = crate::check::load_program_checked(root).map_err(invalid)?;
     for w in &warnings {
         tracing::warn!("{w}");
     }

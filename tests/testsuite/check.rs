@@ -135,3 +135,63 @@ fn check_names_every_defect_through_the_library() {
     assert!((data.weights[0].weight.kg() - 105.006_633_655).abs() < 1e-6);
     assert_eq!(b.files.len(), 2);
 }
+
+/// `check` validates the program's modules exactly as `run` does (one shared function): a bad
+/// module setting, or two modules that disagree on a setting they share, is exit 3 with the same
+/// message from both, and `run` writes nothing.
+#[test]
+fn check_refuses_the_module_settings_run_refuses_with_the_same_message_and_code() {
+    let cases = [
+        (
+            "  - id: energy\n    with: { intake_floor_female: 1400 }\n",
+            "`intake_floor_female` differs between the `energy` module (1400) and the `outcomes` module (1200)",
+        ),
+        (
+            "  - id: energy\n    with: { bogus_setting: 3 }\n",
+            "bogus_setting",
+        ),
+    ];
+    for (energy, words) in cases {
+        let t = ProgramTest::sample();
+        let file = t.dir.join("program.yaml");
+        let text = std::fs::read_to_string(&file).unwrap();
+        let edited: String = text
+            .lines()
+            .map(|l| {
+                if l.starts_with("  - id: energy ") {
+                    energy.to_string()
+                } else {
+                    format!("{l}\n")
+                }
+            })
+            .collect();
+        assert_ne!(edited, text);
+        std::fs::write(&file, &edited).unwrap();
+
+        let check = t.run(&["check", ".", "--as-of", AS_OF]);
+        assert_eq!(check.code, 3, "check: {check:?}");
+        let line = check
+            .stdout
+            .lines()
+            .chain(check.stderr.lines())
+            .find(|l| l.contains(words))
+            .unwrap_or_else(|| panic!("check does not say `{words}`: {check:?}"));
+        assert!(line.contains("program.yaml:"), "{line}");
+
+        let out = t.dir.join("out");
+        let run = t.run(&[
+            "run",
+            ".",
+            "--as-of",
+            AS_OF,
+            "--out",
+            &out.to_string_lossy(),
+        ]);
+        assert_eq!(run.code, 3, "run: {run:?}");
+        assert!(
+            run.stderr.contains(line.trim()),
+            "run's message differs from check's `{line}`: {run:?}"
+        );
+        assert!(!out.exists());
+    }
+}
