@@ -9,7 +9,7 @@
 //! `group_by` key): enrolment and retention, weight change under three missing-data rules
 //! (BOCF primary, LOCF sensitivity, completers), milestone shares with Wilson intervals, a
 //! histogram and a weekly trajectory of % change, adherence medians, plateau prevalence and the
-//! number of clinician-review flags. See [`summary`] for the exact definitions and
+//! number of people with a clinician-review flag. See [`summary`] for the exact definitions and
 //! [`suppress`] for the suppression algorithm (REFERENCE §8).
 //!
 //! These are descriptive programme figures, not clinical findings.

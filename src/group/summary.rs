@@ -253,8 +253,9 @@ pub struct SectionStats {
     pub adherence: Adherence,
     /// Plateau prevalence.
     pub plateau: Plateau,
-    /// Number of clinician-review flags raised (a count only).
-    pub clinician_review_flags: Shown<u64>,
+    /// Number of participants with at least one clinician-review flag (people, not flags: one
+    /// person with two lab values in range counts once; a count only).
+    pub with_clinician_review_flag: Shown<u64>,
 }
 
 /// Enrolment and retention.
@@ -434,7 +435,7 @@ enum Kind {
     PlateauYes,
     PlateauNo,
     PlateauInsufficient,
-    Flags,
+    Flagged,
 }
 
 impl Kind {
@@ -457,7 +458,7 @@ impl Kind {
             Kind::PlateauYes => "on a plateau".into(),
             Kind::PlateauNo => "not on a plateau".into(),
             Kind::PlateauInsufficient => "too little data for a plateau verdict".into(),
-            Kind::Flags => "clinician-review flags".into(),
+            Kind::Flagged => "with a clinician-review flag".into(),
         }
     }
 
@@ -467,7 +468,7 @@ impl Kind {
         match self {
             Kind::NotStarted | Kind::WithoutOutcome | Kind::NotReached(_) => 0,
             Kind::PlateauInsufficient => 0,
-            Kind::Active | Kind::Withdrawn | Kind::Bin(_) | Kind::Flags => 1,
+            Kind::Active | Kind::Withdrawn | Kind::Bin(_) | Kind::Flagged => 1,
             Kind::PlateauYes | Kind::PlateauNo => 1,
             Kind::Reached(_) | Kind::Week(_) | Kind::AdherenceN(_) => 2,
             Kind::PlateauWithVerdict => 2,
@@ -521,14 +522,14 @@ fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>, index: &RowI
         *counts.entry(k).or_insert(0) += 1;
         members.entry(k).or_default().push(who);
     };
-    let mut flags = 0u64;
-    let mut flagged = Vec::new();
     for r in rows {
         let who = index[&(*r as *const ParticipantSummary)];
-        if r.clinical_flags > 0 {
-            flagged.push(who);
-        }
         let mut inc = |k: Kind| inc(k, who);
+        // People, like every other count: the sponsor reads it as people, and the audit
+        // protects it as the set of people it is.
+        if r.clinical_flags > 0 {
+            inc(Kind::Flagged);
+        }
         inc(Kind::Enrolled);
         inc(if r.withdrawn {
             Kind::Withdrawn
@@ -546,7 +547,6 @@ fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>, index: &RowI
             }
             None => inc(Kind::PlateauInsufficient),
         }
-        flags += u64::from(r.clinical_flags);
         let measures = [
             r.activity_minutes_per_week,
             r.weigh_ins_per_week,
@@ -605,8 +605,7 @@ fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>, index: &RowI
             raw.week_idx.entry(w).or_default().push(who);
         }
     }
-    counts.insert(Kind::Flags, flags);
-    members.insert(Kind::Flags, flagged);
+    counts.entry(Kind::Flagged).or_insert(0);
     for &w in weeks {
         counts.insert(
             Kind::Week(w),
@@ -645,7 +644,7 @@ fn all_kinds(weeks: &BTreeSet<u32>) -> Vec<Kind> {
         Kind::PlateauYes,
         Kind::PlateauNo,
         Kind::PlateauInsufficient,
-        Kind::Flags,
+        Kind::Flagged,
     ]);
     k
 }
@@ -1005,9 +1004,6 @@ pub(super) fn build(
             for d in drafts_of() {
                 let raw = d.raw.as_ref().expect("filtered");
                 for (&k, &c) in &d.cells {
-                    if k == Kind::Flags {
-                        continue;
-                    }
                     let bound = if !table.is_suppressed(c) {
                         venn::Bound::Exact(raw.count(k))
                     } else if let Some((lo, hi)) = ranges[c] {
@@ -1023,7 +1019,10 @@ pub(super) fn build(
                     });
                 }
             }
-            let flags = Kind::Flags.name();
+            // Earlier releases' counts join the family of the same name (a release from before
+            // labels, every family). Sets labelled "clinician-review flags" (releases that
+            // printed the number of flags, not of people) join none: their printed figure was
+            // not the size of the set.
             for (name, family) in &mut families {
                 let mut seen: BTreeSet<&Vec<u64>> = BTreeSet::new();
                 for (set, label) in history.counts.iter().zip(
@@ -1033,7 +1032,7 @@ pub(super) fn build(
                         .map(String::as_str)
                         .chain(std::iter::repeat("")),
                 ) {
-                    if (label == name || (label.is_empty() && *name != flags)) && seen.insert(set) {
+                    if (label == name || label.is_empty()) && seen.insert(set) {
                         family.push(venn::FamilySet {
                             people: set.clone(),
                             bound: venn::Bound::Exact(set.len() as u64),
@@ -1279,10 +1278,6 @@ fn link_nested_counts<'a>(
     for (section, d) in drafts.enumerate() {
         let raw = d.raw.as_ref().expect("shown sections have figures");
         for (&k, &c) in &d.cells {
-            // The flags cell counts flags, not people.
-            if k == Kind::Flags {
-                continue;
-            }
             let mut bits = vec![0u64; words];
             for &i in raw.members.get(&k).into_iter().flatten() {
                 bits[i / 64] |= 1 << (i % 64);
@@ -1591,6 +1586,6 @@ fn section_stats(
             percent: plateau_percent,
             ci: plateau_ci,
         },
-        clinician_review_flags: count(Kind::Flags),
+        with_clinician_review_flag: count(Kind::Flagged),
     }
 }

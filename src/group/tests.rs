@@ -120,7 +120,7 @@ fn zero_counts_are_shown() {
     assert_eq!(s.enrolment.not_started, Shown::Value(0));
     assert_eq!(s.enrolment.without_outcome, Shown::Value(0));
     assert_eq!(s.enrolment.active, Shown::Value(20));
-    assert_eq!(s.clinician_review_flags, Shown::Value(0));
+    assert_eq!(s.with_clinician_review_flag, Shown::Value(0));
 }
 
 /// A deterministic pseudo-random generator (64-bit LCG, Knuth MMIX constants) for test data.
@@ -238,7 +238,7 @@ fn section_cells(stats: &Value) -> BTreeMap<String, Value> {
     ] {
         c.insert(format!("plateau.{f}"), stats["plateau"][f].clone());
     }
-    c.insert("flags".into(), stats["clinician_review_flags"].clone());
+    c.insert("flags".into(), stats["with_clinician_review_flag"].clone());
     c
 }
 
@@ -781,4 +781,37 @@ fn many_sites_and_weeks_leak_no_small_cell() {
     let v = check(&rows, &opts(11, &["site", "team"]));
     let sites = v["splits"][0]["sections"].as_array().unwrap();
     assert!(sites.iter().any(|s| s["kind"] == "combined"));
+}
+
+/// The sponsor's clinician-review figure counts people, not flags: 17 people with 29 flags
+/// (12 with two lab values in range, 5 with one) print 17, as the follow-up list counts them.
+/// And it is a people count to the audit too: when all but 5 of 30 are flagged, printing it
+/// beside "enrolled 30" would give the 5 unflagged by subtraction, so it is not shown.
+#[test]
+fn the_clinician_review_figure_counts_people_and_is_audited_as_people() {
+    let mut rows: Vec<_> = (0..40)
+        .map(|i| person("A", 80.0 + i as f64, Some(79.0 + i as f64)))
+        .collect();
+    for (i, r) in rows.iter_mut().enumerate().take(17) {
+        r.clinical_flags = if i < 12 { 2 } else { 1 };
+    }
+    let flags: u32 = rows.iter().map(|r| r.clinical_flags).sum();
+    assert_eq!(flags, 29);
+    let s = summarize(&rows, &opts(11, &[])).program.stats.unwrap();
+    assert_eq!(s.with_clinician_review_flag, Shown::Value(17));
+    assert_eq!(s.enrolment.enrolled, Shown::Value(40));
+
+    let mut rows: Vec<_> = (0..30)
+        .map(|i| person("A", 80.0 + i as f64, Some(79.0 + i as f64)))
+        .collect();
+    for r in rows.iter_mut().take(25) {
+        r.clinical_flags = 1;
+    }
+    let s = summarize(&rows, &opts(11, &[])).program.stats.unwrap();
+    assert_eq!(s.enrolment.enrolled, Shown::Value(30));
+    assert!(
+        s.with_clinician_review_flag.value().is_none(),
+        "25 flagged of 30 enrolled gives the 5 unflagged: {:?}",
+        s.with_clinician_review_flag
+    );
 }

@@ -426,8 +426,8 @@ fn fill(
                 },
             ],
             vec![
-                "Flags for clinician review (count only)".into(),
-                count(&st.clinician_review_flags),
+                "People with a flag for clinician review (count only)".into(),
+                count(&st.with_clinician_review_flag),
             ],
         ],
     };
