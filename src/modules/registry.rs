@@ -348,6 +348,7 @@ pub(crate) fn build_with(
     }
 
     floors_agree(program, &entries, &mut diags);
+    underweight_agrees(program, &entries, &mut diags);
     if diags
         .iter()
         .any(|d| d.severity == crate::diag::Severity::Error)
@@ -399,6 +400,51 @@ fn floors_agree(program: &Program, entries: &[Entry], diags: &mut Vec<Diagnostic
                 None => d,
             });
         }
+    }
+}
+
+/// The underweight cut-off is one setting: the `outcomes` module's `underweight_bmi_below` raises
+/// the clinician's `low_bmi` flag below it, and the report's guidance sends anyone below it to a
+/// clinician with no advice. `guidance.underweight_bmi_below` (the cut-off of programs without
+/// `outcomes`) may repeat it; a different value would tell someone at BMI 18.8 to see a
+/// clinician while no flag reached the clinician (19 in `guidance:` alone), or flag someone the
+/// guidance still advises. It is an error at the `guidance:` key.
+fn underweight_agrees(program: &Program, entries: &[Entry], diags: &mut Vec<Diagnostic>) {
+    let (Some(g), Some(outcomes)) = (
+        program.def.guidance.underweight_bmi_below,
+        entries.iter().find(|e| e.spec.id == "outcomes"),
+    ) else {
+        return;
+    };
+    let Some(o) = outcomes
+        .settings
+        .get("underweight_bmi_below")
+        .and_then(|v| v.as_f64())
+    else {
+        return;
+    };
+    if g != o {
+        let d = Diagnostic::error(
+            "program.yaml",
+            format!(
+                "`guidance.underweight_bmi_below` ({g}) differs from the `outcomes` module's \
+                 `underweight_bmi_below` ({o})"
+            ),
+        )
+        .field("guidance.underweight_bmi_below")
+        .expected(format!(
+            "the outcomes module's cut-off ({o}), or no guidance setting"
+        ))
+        .found(g.to_string())
+        .hint(format!(
+            "the clinician's low-BMI flag uses the outcomes module's cut-off and the report's \
+             advice stops below the guidance one: set `underweight_bmi_below: {g}` in the \
+             outcomes module's `with:` and remove it from `guidance:`"
+        ));
+        diags.push(match program.underweight_line {
+            Some(line) => d.at(line, None),
+            None => d,
+        });
     }
 }
 

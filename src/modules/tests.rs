@@ -133,6 +133,7 @@ fn program(modules_yaml: &str) -> Program {
         info: info(),
         def,
         module_lines,
+        underweight_line: None,
     }
 }
 

@@ -54,11 +54,13 @@ pub fn parse_program(root: &Path, text: &str) -> Result<Program, Vec<Diagnostic>
         targets: def.targets.apply(&Targets::default()),
     };
     let module_lines = module_lines(text, def.modules.len());
+    let underweight_line = key_line(text, "guidance.underweight_bmi_below");
     Ok(Program {
         root: root.to_path_buf(),
         def,
         info,
         module_lines,
+        underweight_line,
     })
 }
 

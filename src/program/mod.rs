@@ -317,4 +317,7 @@ pub struct Program {
     pub info: ProgramInfo,
     /// Line of each `modules:` entry in program.yaml (for diagnostics), by index.
     pub module_lines: BTreeMap<usize, u64>,
+    /// Line of `guidance.underweight_bmi_below` in program.yaml, when set (for the check that it
+    /// agrees with the `outcomes` module's cut-off).
+    pub underweight_line: Option<u64>,
 }

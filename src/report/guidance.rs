@@ -78,8 +78,9 @@ pub struct Thresholds {
     /// guideline on clinical nutrition and hydration in geriatrics, Volkert et al. 2019, Clin
     /// Nutr 38:10–47 — from memory). The higher of this and `loss_bmi_at_least` applies.
     pub loss_bmi_at_least_70_plus: f64,
-    /// BMI below which further loss is for a clinician. Default 18.5: the WHO cut-off for
-    /// underweight (WHO 2000, Technical Report Series 894).
+    /// BMI below which further loss is for a clinician: the `outcomes` module's
+    /// `underweight_bmi_below`, which raises its `low_bmi` flag below it (default 18.5: the WHO
+    /// cut-off for underweight, WHO 2000, Technical Report Series 894); `guidance.` may repeat it.
     pub underweight_bmi_below: f64,
     /// BMI below which a weight that is still falling is for a clinician: the `outcomes`
     /// module's `low_bmi_losing_below` (default 20; MUST, BAPEN 2003 — from memory), which
@@ -120,7 +121,7 @@ impl Default for Thresholds {
         Thresholds {
             loss_bmi_at_least: 25.0,
             loss_bmi_at_least_70_plus: 30.0,
-            underweight_bmi_below: 18.5,
+            underweight_bmi_below: cohortpress_metric_outcomes::UNDERWEIGHT_BMI_BELOW,
             low_bmi_losing_below: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW,
             low_bmi_losing_below_70_plus: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW_70_PLUS,
             floor_female: 1200.0,
@@ -160,7 +161,12 @@ impl Thresholds {
             loss_bmi_at_least_70_plus: g
                 .loss_bmi_at_least_70_plus
                 .unwrap_or(d.loss_bmi_at_least_70_plus),
-            underweight_bmi_below: g.underweight_bmi_below.unwrap_or(d.underweight_bmi_below),
+            // One cut-off: the `outcomes` module's, which raises the `low_bmi` flag below it
+            // (a `guidance.underweight_bmi_below` that differs is refused when the program
+            // loads; without `outcomes` it is the only one).
+            underweight_bmi_below: g
+                .underweight_bmi_below
+                .unwrap_or(outcomes("underweight_bmi_below", d.underweight_bmi_below)),
             low_bmi_losing_below: outcomes("low_bmi_losing_below", d.low_bmi_losing_below),
             low_bmi_losing_below_70_plus: outcomes(
                 "low_bmi_losing_below_70_plus",

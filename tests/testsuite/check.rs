@@ -195,3 +195,73 @@ fn check_refuses_the_module_settings_run_refuses_with_the_same_message_and_code(
         assert!(!out.exists());
     }
 }
+
+/// The underweight cut-off is one setting. Set in the `outcomes` module, it moves both the
+/// clinician's `low_bmi` flag and the report's guidance (the cautions name it); set in
+/// `guidance:` to another value, `check` and `run` refuse the program (exit 3) at that line.
+#[test]
+fn the_underweight_cut_off_is_one_setting() {
+    let t = ProgramTest::sample();
+    let file = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&file).unwrap();
+    let with_outcomes: String = text
+        .lines()
+        .map(|l| {
+            if l.starts_with("  - id: outcomes ") {
+                "  - id: outcomes\n    with: { underweight_bmi_below: 19 }\n".to_string()
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect();
+    assert_ne!(with_outcomes, text);
+    std::fs::write(&file, &with_outcomes).unwrap();
+    let out = t.dir.join("out");
+    let run = t.run(&[
+        "run",
+        ".",
+        "--as-of",
+        AS_OF,
+        "--period",
+        "2026-09",
+        "--formats",
+        "html",
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert!(run.code <= 4, "{run:?}");
+    let html = std::fs::read_to_string(out.join("participants/SG-001/report.html"))
+        .or_else(|_| std::fs::read_to_string(out.join("participants/SG-001.html")))
+        .expect("SG-001's report");
+    assert!(
+        html.contains("a BMI under 19 (or under 20 while still losing; 22 from age 70)"),
+        "the guidance did not take the outcomes module's cut-off"
+    );
+
+    // 19 in `guidance:` beside the outcomes default of 18.5: refused by both commands.
+    let lines = text.lines().count();
+    std::fs::write(
+        &file,
+        format!("{text}guidance:\n  underweight_bmi_below: 19\n"),
+    )
+    .unwrap();
+    let want = format!(
+        "program.yaml:{}: `guidance.underweight_bmi_below` (19) differs from the `outcomes` module's `underweight_bmi_below` (18.5)",
+        lines + 2
+    );
+    let check = t.run(&["check", ".", "--as-of", AS_OF]);
+    assert_eq!(check.code, 3, "{check:?}");
+    assert!(check.stdout.contains(&want), "{want} not in {check:?}");
+    let out2 = t.dir.join("out2");
+    let run = t.run(&[
+        "run",
+        ".",
+        "--as-of",
+        AS_OF,
+        "--out",
+        &out2.to_string_lossy(),
+    ]);
+    assert_eq!(run.code, 3, "{run:?}");
+    assert!(run.stderr.contains(&want), "{want} not in {run:?}");
+    assert!(!out2.exists());
+}

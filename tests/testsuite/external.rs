@@ -54,6 +54,7 @@ fn program_in(root: &Path, modules: &str) -> Program {
         def,
         info,
         module_lines,
+        underweight_line: None,
     }
 }
 

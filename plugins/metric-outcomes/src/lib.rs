@@ -41,7 +41,8 @@
 //! * `fast_gain` (clinical): the same test as `fast_loss` on a rise: faster than
 //!   `fast_loss_kg_per_week` over `fast_loss_span_days` in a row, ending in the period (a change
 //!   of scale or clothing, a mistyped weigh-in, or fluid, more often than tissue).
-//! * `low_bmi` (clinical): current BMI in the WHO underweight class (< 18.5 kg/m²), or below
+//! * `low_bmi` (clinical): current BMI below `underweight_bmi_below` (default 18.5 kg/m², the
+//!   WHO underweight class; the report's guidance takes its underweight cut-off from here), or below
 //!   `low_bmi_losing_below` (20 kg/m²) while the weight trend is still falling (the trend's
 //!   status is `losing`, or its slope's whole 95 % interval is below zero). BMI 18.5–20 is the
 //!   band the Malnutrition Universal Screening Tool already scores as a risk, and weight lost
@@ -104,6 +105,9 @@ pub const MIN_INTAKE_DAYS: usize = 4;
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
 /// Profile flag for a pregnancy.
 pub const PREGNANCY_FLAG: &str = "pregnant";
+/// Default of `underweight_bmi_below`, kg/m²: below it `low_bmi` is raised whatever the trend
+/// (WHO 2000, Technical Report Series 894: underweight is BMI < 18.5).
+pub const UNDERWEIGHT_BMI_BELOW: f64 = 18.5;
 /// Default of `low_bmi_losing_below`, kg/m²: below it a weight trend that is still falling
 /// raises `low_bmi` (BMI 18.5–20 scores a malnutrition risk: MUST, BAPEN 2003; from memory).
 pub const LOW_BMI_LOSING_BELOW: f64 = 20.0;
@@ -503,6 +507,15 @@ impl MetricModule for OutcomesModule {
                     "trend loss rate above which sustained loss is flagged (NIH/NHLBI 1998)",
                 ),
                 SettingSpec::number(
+                    "underweight_bmi_below",
+                    UNDERWEIGHT_BMI_BELOW,
+                    "kg/m²",
+                    15.0,
+                    25.0,
+                    "BMI below which the weight is flagged for a clinician whatever the trend, \
+                     and further loss is not advised (WHO 2000: underweight < 18.5)",
+                ),
+                SettingSpec::number(
                     "low_bmi_losing_below",
                     LOW_BMI_LOSING_BELOW,
                     "kg/m²",
@@ -625,7 +638,7 @@ impl MetricModule for OutcomesModule {
                     OutcomesFlag::LowBmi.as_str(),
                     "flag",
                     "",
-                    "current BMI under 18.5, or under low_bmi_losing_below while the trend still falls",
+                    "current BMI under underweight_bmi_below, or under low_bmi_losing_below while the trend still falls",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::LabDiabetesRange.as_str(),
@@ -1085,14 +1098,19 @@ fn push_low_bmi_flag(
     let Some(b) = bmi1 else {
         return;
     };
-    if who_bmi_class(b) == BmiCategory::Underweight {
+    let under = ctx.setting_f64("underweight_bmi_below", UNDERWEIGHT_BMI_BELOW);
+    if !at_least(b, under) {
+        let cut = if (under - UNDERWEIGHT_BMI_BELOW).abs() < CUT_EPS {
+            "18.5, the lower limit of the normal range (WHO)".to_string()
+        } else {
+            format!("{}, the program's cut-off for a low BMI", cut_words(under))
+        };
         output.push_flag(
             OutcomesFlag::LowBmi.as_str(),
             FlagSeverity::Clinical,
             format!(
-                "Current BMI is about {:.1} kg/m², below 18.5, the lower limit of the \
-                     normal range (WHO). Further weight loss should be reviewed with a \
-                     licensed clinician.",
+                "Current BMI is about {:.1} kg/m², below {cut}. Further weight loss should be \
+                 reviewed with a licensed clinician.",
                 bmi_one_decimal(b)
             ),
         );

@@ -922,3 +922,28 @@ fn no_weigh_ins_gives_missing_values_and_a_note() {
     assert_eq!(codes(&out), vec!["insufficient_data"]);
     assert_eq!(out.flags[0].severity, FlagSeverity::Info);
 }
+
+/// `underweight_bmi_below` moves the flag raised whatever the trend: a program that sends
+/// everyone under BMI 19 to a clinician (its guidance takes the same cut-off) flags a steady
+/// woman at 18.8, whom the default WHO 18.5 leaves alone.
+#[test]
+fn the_underweight_cut_off_is_a_setting() {
+    let h2 = 1.70 * 1.70;
+    let mut p = participant(Sex::Female, 170.0);
+    p.weights = vec![weigh(day(0), 18.8 * h2), weigh(day(14), 18.8 * h2)];
+    assert!(run(&ctx(day(0), day(14), None), &p).flags.is_empty());
+    let c = ctx_with(
+        day(0),
+        day(14),
+        None,
+        serde_json::json!({ "underweight_bmi_below": 19.0 }),
+    );
+    let out = run(&c, &p);
+    assert_eq!(codes(&out), vec!["low_bmi"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    let m = &out.flags[0].message;
+    assert!(
+        m.contains("about 18.8 kg/m², below 19, the program's cut-off for a low BMI."),
+        "{m}"
+    );
+}
