@@ -31,6 +31,12 @@ pub const MAX_CSV_ROWS: usize = 50_000;
 pub const MAX_CSV_COLUMNS: usize = 256;
 /// Longest CSV field, in bytes (a note or a label; longer rows are dropped with a warning).
 pub const MAX_CSV_FIELD_BYTES: usize = 4096;
+/// Longest program, from `program.start` to `program.end`, in days (10 years with their leap
+/// days; common practice: weight-management programs and their maintenance follow-up run for
+/// months to a few years). Every report and figure has a row per week since enrolment, so a
+/// typo in a year (`start: 1950-01-01`) made a 48-person run take 90 s and 1.5 GB over
+/// decades of empty weeks; such a program is refused at `program.end`.
+pub const MAX_PROGRAM_DAYS: i64 = 3653;
 /// Most worker threads a run starts (`--jobs`): each is a thread with its own stack, and a
 /// typo (`--jobs 1000000`) made the run spend a minute creating threads until memory ran out,
 /// then abort (common practice: far above the cores of any machine this runs on).

@@ -196,6 +196,29 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 .expected(format!("an end date after the start {}", def.program.start))
                 .found(def.program.end.to_string()),
         );
+    } else if (def.program.end - def.program.start).num_days() > crate::limits::MAX_PROGRAM_DAYS {
+        let days = (def.program.end - def.program.start).num_days();
+        let last = def.program.start + chrono::Duration::days(crate::limits::MAX_PROGRAM_DAYS);
+        let mut d = Diagnostic::error(
+            PROGRAM_FILE,
+            format!(
+                "the program runs {days} days (about {:.0} years), longer than the limit of {} \
+                 days (10 years)",
+                days as f64 / 365.25,
+                crate::limits::MAX_PROGRAM_DAYS
+            ),
+        )
+        .field("program.end")
+        .expected(format!(
+            "an end date at most 10 years after the start {} (on or before {last})",
+            def.program.start
+        ))
+        .found(def.program.end.to_string())
+        .hint("check the years of `start` and `end`: a typo in a year gives every report decades of empty weeks");
+        if let Some((line, column)) = key_position(text, "program.end") {
+            d = d.at(line, column);
+        }
+        out.push(d);
     }
     for (key, v, lo, hi) in target_problems(&def.targets) {
         let key = format!("targets.{key}");
@@ -796,6 +819,41 @@ report:
         // An unknown key under followup is refused like any other.
         let typo = format!("{GOOD}followup:\n  recipent: Program nurse\n");
         assert!(parse_program(root(), &typo).is_err());
+    }
+
+    /// A year typo (`start: 1950-01-01`) gave a program of a century, and a 48-person run took
+    /// 90 s and 1.5 GB over decades of empty weeks. Over 10 years (3,653 days) it is refused at
+    /// `program.end`'s value, in block and in flow style; exactly 10 years is accepted.
+    #[test]
+    fn a_program_of_decades_is_refused_at_its_end_date() {
+        let block = "format_version: 1\nprogram:\n  id: p\n  title: P\n  start: 1950-01-01\n  end: 2049-12-31\nmodules: [ {id: trend} ]\n";
+        let e = parse_program(root(), block).unwrap_err();
+        assert_eq!(e.len(), 1, "{e:#?}");
+        let d = &e[0];
+        assert_eq!(d.field.as_deref(), Some("program.end"));
+        assert_eq!((d.line, d.column), (Some(6), Some(8)));
+        assert!(
+            d.message.contains(
+                "the program runs 36524 days (about 100 years), longer than the limit of 3653 days"
+            ),
+            "{}",
+            d.message
+        );
+        assert_eq!(d.found.as_deref(), Some("2049-12-31"));
+        assert_eq!(
+            d.expected.as_deref(),
+            Some(
+                "an end date at most 10 years after the start 1950-01-01 (on or before 1960-01-02)"
+            )
+        );
+        let flow = GOOD.replace("end: 2026-09-30", "end: 2062-09-30");
+        let e = parse_program(root(), &flow).unwrap_err();
+        assert_eq!((e[0].line, e[0].column), (Some(2), Some(66)), "{e:#?}");
+        // Exactly the limit: accepted.
+        let ten = GOOD.replace("end: 2026-09-30", "end: 2036-04-01");
+        assert!(parse_program(root(), &ten).is_ok());
+        let over = GOOD.replace("end: 2026-09-30", "end: 2036-04-02");
+        assert!(parse_program(root(), &over).is_err());
     }
 
     #[test]
