@@ -193,6 +193,25 @@ fn one_persons_weigh_ins_in_two_folders_are_not_counted_twice() {
         .map(|l| l.split(',').nth(1).unwrap())
         .collect();
     assert_eq!(rows, ["SG-002", "SG-006"]);
+    // The staff's list names both folders on each row: the row's own file, and the other in
+    // its message and `found`.
+    for (own, other) in [("SG-002", "SG-006"), ("SG-006", "SG-002")] {
+        let row = dq
+            .lines()
+            .find(|l| l.starts_with(&format!("error,{own},")) && l.contains("the same weigh-ins"))
+            .unwrap();
+        assert!(
+            row.starts_with(&format!(
+                "error,{own},participants/{own}/weights.csv,,,,the same weigh-ins as \
+                 participants/{other}/weights.csv (the files are identical)"
+            )),
+            "{row}"
+        );
+        assert!(
+            row.contains(&format!(",a copy of participants/{other}/weights.csv,")),
+            "{row}"
+        );
+    }
 }
 
 #[test]
