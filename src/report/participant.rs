@@ -202,6 +202,7 @@ pub fn build(
                 a,
                 p.targets.activity_minutes_per_week,
                 &activity_unread(diags),
+                &super::ProgramView::new(plan).period_label,
             );
             (Some(view), Some(chart))
         }
@@ -1009,18 +1010,28 @@ fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
     }
 }
 
+/// The habits section. Its rates are the reporting period's (`period`, as the report's title
+/// names it), the sessions and the longest run since enrolment: each label says which, since
+/// "Weigh-ins per week" beside "attended since you joined" read as the whole program's rate.
 fn adherence_section(
     a: &AdherenceResults,
     target: f64,
     unread: &ActivityUnread,
+    period: &str,
 ) -> (AdherenceView, Chart) {
     let mut items = Vec::new();
     let f1 = |v: Option<f64>| v.map(|v| fmt::fixed(v, 1));
     if let Some(v) = f1(a.weigh_ins_per_week) {
-        items.push(Kv::new("Weigh-ins per week", &v));
+        items.push(Kv::new(
+            &format!("Days with a weigh-in per week, {period}"),
+            &v,
+        ));
     }
     if let Some(v) = f1(a.food_log_days_per_week) {
-        items.push(Kv::new("Days with a food log per week", &v));
+        items.push(Kv::new(
+            &format!("Days with a food log per week, {period}"),
+            &v,
+        ));
     }
     if let Some(v) = a.activity_minutes_per_week {
         // Never "0 minutes" when the log could not be read: say so instead.
@@ -1045,7 +1056,7 @@ fn adherence_section(
             }
         };
         items.push(Kv::new(
-            "Activity minutes per week (moderate-equivalent)",
+            &format!("Activity minutes per week (moderate-equivalent), {period}"),
             &text,
         ));
     }
@@ -1059,7 +1070,7 @@ fn adherence_section(
     }
     if let Some(v) = a.longest_weigh_in_streak_days {
         items.push(Kv::new(
-            "Longest run of daily weigh-ins",
+            "Longest run of daily weigh-ins since you joined",
             &format!("{} days", fmt::fixed(v, 0)),
         ));
     }
@@ -1128,13 +1139,58 @@ mod activity_unread_tests {
             activity_minutes_per_week: Some(minutes),
             ..AdherenceResults::default()
         };
-        let (view, _) = adherence_section(&adherence, 150.0, &activity_unread(diags));
+        let (view, _) =
+            adherence_section(&adherence, 150.0, &activity_unread(diags), "September 2026");
         view.items
             .iter()
             .find(|k| k.label.starts_with("Activity minutes"))
             .unwrap()
             .value
             .clone()
+    }
+
+    /// Sample program, September 2026, SG-001: "Weigh-ins per week 1.4" and "Activity minutes
+    /// per week 123" (September's rates) stood beside "Group sessions attended since you joined
+    /// 11 of 16" and "Longest run of daily weigh-ins 3 days" (since enrolment), with nothing to
+    /// tell which figure covers which span; the rate counts days with a weigh-in.
+    #[test]
+    fn each_habit_figure_names_its_span() {
+        let adherence = AdherenceResults {
+            weigh_ins_per_week: Some(1.4),
+            food_log_days_per_week: Some(2.6),
+            activity_minutes_per_week: Some(123.0),
+            sessions_attended_to_date: Some(11.0),
+            sessions_offered_to_date: Some(16.0),
+            longest_weigh_in_streak_days: Some(3.0),
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(
+            &adherence,
+            150.0,
+            &ActivityUnread::Nothing,
+            "September 2026",
+        );
+        let items: Vec<(String, String)> = view
+            .items
+            .iter()
+            .map(|k| (k.label.clone(), k.value.clone()))
+            .collect();
+        let want = [
+            ("Days with a weigh-in per week, September 2026", "1.4"),
+            ("Days with a food log per week, September 2026", "2.6"),
+            (
+                "Activity minutes per week (moderate-equivalent), September 2026",
+                "123 (target 150)",
+            ),
+            ("Group sessions attended since you joined", "11 of 16"),
+            ("Longest run of daily weigh-ins since you joined", "3 days"),
+        ];
+        assert_eq!(
+            items,
+            want.iter()
+                .map(|(l, v)| (l.to_string(), v.to_string()))
+                .collect::<Vec<_>>()
+        );
     }
 
     /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the
