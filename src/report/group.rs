@@ -352,7 +352,7 @@ fn fill(
             change_row("Completers only", &w.completers),
         ],
     };
-    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The first line is the primary, conservative figure.".into();
+    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The intention-to-treat lines count everyone who started: someone without a weigh-in in the last 4 weeks of the period counts as unchanged (baseline carried forward: the first line, the primary and conservative figure) or at their last weigh-in (last observation carried forward). Completers only counts just those with a weigh-in in the last 4 weeks. CI: 95 % confidence interval, the range the true mean or median likely lies in.".into();
     view.milestones = TableView {
         header: vec![
             "Loss of at least".into(),
