@@ -376,7 +376,7 @@ fn fill(
     let a = &st.adherence;
     let p = &st.plateau;
     view.adherence = TableView {
-        header: vec!["Measure".into(), "Median (n)".into()],
+        header: vec!["Measure".into(), "Median (n), or count".into()],
         rows: vec![
             vec![
                 "Activity minutes per week (moderate-equivalent)".into(),
@@ -386,7 +386,7 @@ fn fill(
                 ),
             ],
             vec![
-                "Weigh-ins per week".into(),
+                "Days with a weigh-in per week".into(),
                 median_with_n(
                     num(&a.weigh_ins_per_week.median, 1, ""),
                     &a.weigh_ins_per_week.n,
@@ -407,7 +407,7 @@ fn fill(
                 ),
             ],
             vec![
-                "On a plateau at the end of the period".into(),
+                "On a plateau at the end of the period (count)".into(),
                 match p.in_plateau {
                     // The interval only when it can be shown (never "x % (not shown (…))").
                     Shown::Value(_) => format!(
@@ -426,7 +426,7 @@ fn fill(
                 },
             ],
             vec![
-                "Flags for clinician review (count only)".into(),
+                "Flags for clinician review (count)".into(),
                 count(&st.clinician_review_flags),
             ],
         ],
