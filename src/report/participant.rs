@@ -710,6 +710,7 @@ fn weight_chart(
         }
     }
     // No forecast (e.g. after leaving the program): no empty "Forecast" entry in the legend.
+    let mut forecast_to = None;
     if let Some(s) = v
         .energy
         .as_ref()
@@ -729,6 +730,7 @@ fn weight_chart(
             points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
             style: LineStyle::Dashed,
         });
+        forecast_to = s.points.last().map(|p| p.date);
     }
     let mut hlines = Vec::new();
     if let Some(t) = target_kg {
@@ -743,6 +745,7 @@ fn weight_chart(
         plan.period.to,
         !spans.is_empty(),
         target_kg.is_some(),
+        forecast_to,
     );
     // Steps the trend left out: the dots before each sit off the line by the steps after them
     // (with a scale put back, those before the first step sit on it); say where and why.
@@ -795,28 +798,42 @@ fn weight_chart(
 }
 
 /// The weight chart's description. It starts where the person's records do: the program's
-/// start, or their enrolment when they joined later (the chart's axis starts there too).
+/// start, or their enrolment when they joined later (the chart's axis starts there too). A
+/// forecast runs past the period's end (sample program, September 2026: an axis to 9 December
+/// under "Weight chart for 1 Apr 2026 to 30 Sep 2026", the dashed line and its band unnamed):
+/// the description says how far and on what assumption.
 fn weight_chart_alt(
     start: NaiveDate,
     enrolled: NaiveDate,
     to: NaiveDate,
     spans: bool,
     target: bool,
+    forecast_to: Option<NaiveDate>,
 ) -> String {
+    let mut parts = vec!["weigh-ins, the smoothed trend with its 95 % band".to_string()];
+    if spans {
+        parts.push("plateau and regain periods shaded".into());
+    }
+    if target {
+        parts.push("the target weight".into());
+    }
+    if let Some(f) = forecast_to.filter(|f| *f > to) {
+        parts.push(format!(
+            "a forecast to {} (dashed) if you keep eating as in the last weeks, with the range \
+             it may fall in",
+            fmt::date(f)
+        ));
+    }
+    let last = parts.pop().expect("the first part");
+    let list = if parts.is_empty() {
+        last
+    } else {
+        format!("{}, and {last}", parts.join(", "))
+    };
     format!(
-        "Weight chart for {} to {}: weigh-ins, the smoothed trend with its 95 % band{}{}.",
+        "Weight chart for {} to {}: {list}.",
         fmt::date(start.max(enrolled)),
         fmt::date(to),
-        if spans {
-            ", plateau and regain periods shaded"
-        } else {
-            ""
-        },
-        if target {
-            ", and the target weight"
-        } else {
-            ""
-        }
     )
 }
 
@@ -1474,8 +1491,9 @@ mod activity_unread_tests {
     fn the_weight_chart_of_a_late_joiner_is_described_from_enrolment() {
         let d = |s: &str| s.parse::<NaiveDate>().unwrap();
         let start = d("2026-04-01");
-        let alt =
-            |enrolled: &str| weight_chart_alt(start, d(enrolled), d("2026-04-30"), false, true);
+        let alt = |enrolled: &str| {
+            weight_chart_alt(start, d(enrolled), d("2026-04-30"), false, true, None)
+        };
         assert_eq!(
             alt("2026-04-20"),
             "Weight chart for 20 Apr 2026 to 30 Apr 2026: weigh-ins, the smoothed trend with its 95 % band, and the target weight."
@@ -1483,6 +1501,34 @@ mod activity_unread_tests {
         assert!(alt("2026-04-01").starts_with("Weight chart for 1 Apr 2026 to 30 Apr 2026:"));
         // Enrolled before the program's start date: the program's start.
         assert!(alt("2026-03-20").starts_with("Weight chart for 1 Apr 2026 "));
+    }
+
+    /// Sample program, September 2026, SG-001: the weight chart's axis ran to 9 December with a
+    /// dashed forecast and its band, under "Weight chart for 1 Apr 2026 to 30 Sep 2026:
+    /// weigh-ins, the smoothed trend with its 95 % band, plateau and regain periods shaded".
+    #[test]
+    fn the_weight_chart_names_its_forecast() {
+        let d = |s: &str| s.parse::<NaiveDate>().unwrap();
+        let start = d("2026-04-01");
+        assert_eq!(
+            weight_chart_alt(
+                start,
+                start,
+                d("2026-09-30"),
+                true,
+                false,
+                Some(d("2026-12-09"))
+            ),
+            "Weight chart for 1 Apr 2026 to 30 Sep 2026: weigh-ins, the smoothed trend with its 95 % band, plateau and regain periods shaded, and a forecast to 9 Dec 2026 (dashed) if you keep eating as in the last weeks, with the range it may fall in."
+        );
+        assert_eq!(
+            weight_chart_alt(start, start, d("2026-09-30"), true, true, None),
+            "Weight chart for 1 Apr 2026 to 30 Sep 2026: weigh-ins, the smoothed trend with its 95 % band, plateau and regain periods shaded, and the target weight."
+        );
+        assert_eq!(
+            weight_chart_alt(start, start, d("2026-09-30"), false, false, None),
+            "Weight chart for 1 Apr 2026 to 30 Sep 2026: weigh-ins, the smoothed trend with its 95 % band."
+        );
     }
 
     /// Sample program, April 2026, SG-006 (enrolled 20 April, 7 weigh-ins in 11 days) read
