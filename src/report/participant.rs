@@ -909,7 +909,10 @@ fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) 
         e.implied_intake_kcal_per_day,
     );
     if let Some(g) = e.intake_gap_kcal_per_day.value {
-        items.push(Kv::new("Implied minus logged", &fmt::kcal_change(g)));
+        items.push(Kv::new(
+            "Implied intake minus logged intake",
+            &fmt::kcal_change(g),
+        ));
     }
     if let Some(b) = e.energy_balance_kcal_per_day.value {
         items.push(Kv::new("Energy balance (implied)", &fmt::kcal_change(b)));
@@ -922,8 +925,15 @@ fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) 
     } else {
         "Energy use is estimated from a published equation, your activity level and your logged activity (net of what you would burn resting); the total above covers this period, the table below each week.".to_string()
     };
+    // "Energy balance (implied) +59 kcal/day" stood unexplained (sample program, September
+    // 2026, SG-001): say what it is and which way its sign points.
+    let balance = if e.energy_balance_kcal_per_day.value.is_some() {
+        " The energy balance is the implied intake minus the total energy use: above zero your body stored energy (weight goes up), below zero it drew on its reserves (weight goes down)."
+    } else {
+        ""
+    };
     let explanation = format!(
-        "{how_total} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard. Ranges are 95 % intervals."
+        "{how_total} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard.{balance} Ranges are 95 % intervals."
     );
     let mut table = TableView {
         header: vec![
@@ -1442,6 +1452,32 @@ mod activity_unread_tests {
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
         let (v, _) = energy_section(&e, "last 30 days");
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
+        // The balance and the gap say what they are (sample program, September 2026, SG-001:
+        // "Implied minus logged +670" and "Energy balance (implied) +59", both unexplained).
+        if e.energy_balance_kcal_per_day.value.is_some() {
+            assert!(
+                v.explanation.contains(
+                    "The energy balance is the implied intake minus the total energy use: above zero your body stored energy (weight goes up), below zero it drew on its reserves (weight goes down)."
+                ),
+                "{}",
+                v.explanation
+            );
+        }
+        if e.intake_gap_kcal_per_day.value.is_some() {
+            assert!(
+                v.items
+                    .iter()
+                    .any(|k| k.label == "Implied intake minus logged intake"),
+                "{:?}",
+                v.items
+            );
+        }
+        e.energy_balance_kcal_per_day.value = Some(59.0);
+        let (v, _) = energy_section(&e, "last 4 weeks");
+        assert!(v.explanation.contains("above zero your body stored energy"));
+        e.energy_balance_kcal_per_day.value = None;
+        let (v, _) = energy_section(&e, "last 4 weeks");
+        assert!(!v.explanation.contains("The energy balance is"));
         // Without an implied intake the total is the equation's, over the period.
         e.implied_intake_kcal_per_day.value = None;
         let (v, _) = energy_section(&e, "last 4 weeks");
