@@ -11,6 +11,7 @@ use crate::group::{ChangeLine, GroupReport, Section, SectionStats};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle,
 };
+use chrono::NaiveDate;
 use serde::Serialize;
 
 /// What the group templates see (documented in `report-templates/CONTEXT.md`).
@@ -144,6 +145,22 @@ fn median_with_n(median: String, n: &Shown<u64>) -> String {
     }
 }
 
+/// A release's period as the ledger keeps it (`2026-08-01 to 2026-08-31`) in the words the rest
+/// of the report uses (`August 2026`); the month-over-month table printed the ISO dates, the
+/// only ones in the report. Anything else is printed as it is.
+fn release_period_words(period: &str) -> String {
+    let parsed = period.split_once(" to ").and_then(|(a, b)| {
+        Some((
+            NaiveDate::parse_from_str(a, "%Y-%m-%d").ok()?,
+            NaiveDate::parse_from_str(b, "%Y-%m-%d").ok()?,
+        ))
+    });
+    match parsed {
+        Some((from, to)) => super::period_label(from, to),
+        None => period.to_string(),
+    }
+}
+
 /// The month-over-month table (whole program, as published in each release).
 fn releases_table(g: &GroupReport) -> TableView {
     if g.releases.is_empty() {
@@ -162,7 +179,7 @@ fn releases_table(g: &GroupReport) -> TableView {
             .iter()
             .map(|r| {
                 vec![
-                    r.period.clone(),
+                    release_period_words(&r.period),
                     r.started.clone(),
                     r.retention.clone(),
                     r.mean_change.clone(),
@@ -568,5 +585,24 @@ fn fill(
                 .into(),
             table: TableView::default(),
         });
+    }
+}
+
+#[cfg(test)]
+mod release_period_tests {
+    /// Sample program, September 2026, after an August run: the month-over-month table's
+    /// periods read "2026-08-01 to 2026-08-31", the only ISO dates in a report that writes
+    /// "1 Apr 2026 – 30 Sep 2026" everywhere else.
+    #[test]
+    fn release_periods_read_as_the_report_names_periods() {
+        assert_eq!(
+            super::release_period_words("2026-08-01 to 2026-08-31"),
+            "August 2026"
+        );
+        assert_eq!(
+            super::release_period_words("2026-09-01 to 2026-09-15"),
+            "1 Sep 2026 – 15 Sep 2026"
+        );
+        assert_eq!(super::release_period_words("spring"), "spring");
     }
 }
