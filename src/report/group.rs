@@ -252,9 +252,9 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
     if left_out > 0 {
         let n = left_out;
         notes.push(if n == 1 {
-            "One participant folder could not be used because of input errors and is not counted here; the run's data-quality list (metrics/data-quality.csv) names the problems.".to_string()
+            "One participant folder could not be used because of input errors and is not counted here; the program staff's data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems.".to_string()
         } else {
-            format!("{n} participant folders could not be used because of input errors and are not counted here; the run's data-quality list (metrics/data-quality.csv) names the problems.")
+            format!("{n} participant folders could not be used because of input errors and are not counted here; the program staff's data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems.")
         });
     }
     let m = &g.methods;
