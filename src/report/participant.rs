@@ -1104,7 +1104,7 @@ fn adherence_section(
     let mut table = TableView {
         header: vec![
             "Week of".into(),
-            "Weigh-ins".into(),
+            "Weigh-in days".into(),
             "Food-log days".into(),
             "Activity min".into(),
             "Sessions".into(),
@@ -1218,6 +1218,8 @@ mod activity_unread_tests {
                 .map(|(l, v)| (l.to_string(), v.to_string()))
                 .collect::<Vec<_>>()
         );
+        // The weekly table's column counts days too.
+        assert_eq!(view.chart.table.header[1], "Weigh-in days");
     }
 
     /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the
