@@ -235,7 +235,11 @@ pub fn build(
             Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
         ),
         summary: summary(&v, units, plan.period.to),
-        milestones: milestones(v.outcomes.as_ref(), loss_goal),
+        milestones: v
+            .outcomes
+            .as_ref()
+            .map(|o| milestones(&o.milestones, loss_goal, left.is_some()))
+            .unwrap_or_default(),
         weight_chart: weight_view,
         energy: energy_view,
         adherence: adherence_view,
@@ -348,22 +352,22 @@ fn bmi_text(bmi: f64, category: Option<BmiCategory>) -> String {
 }
 
 /// Milestones (3, 5, 7, 10 % loss) and when they were reached; when loss is not the goal
-/// (target reached, a BMI below the loss cut-off, a target that is not a loss), only those
-/// already reached.
-fn milestones(outcomes: Option<&OutcomesView>, loss_goal: bool) -> Vec<MilestoneView> {
-    outcomes
-        .map(|o| {
-            o.milestones
-                .iter()
-                .filter(|m| loss_goal || m.reached)
-                .map(|m| MilestoneView {
-                    label: format!("{} % loss", num_text(Some(m.threshold_percent))),
-                    reached: m.reached,
-                    reached_on: m.date_reached.map(fmt::date).unwrap_or_default(),
-                })
-                .collect()
+/// (target reached, a BMI below the loss cut-off, a target that is not a loss) or the person
+/// has left the program (sample program, September 2026, SG-018, who left on 27 July: "5 %
+/// loss · not yet" in a report that sums up their records), only those already reached.
+fn milestones(
+    rows: &[cohortpress_metric_outcomes::view::MilestoneRow],
+    loss_goal: bool,
+    left: bool,
+) -> Vec<MilestoneView> {
+    rows.iter()
+        .filter(|m| (loss_goal && !left) || m.reached)
+        .map(|m| MilestoneView {
+            label: format!("{} % loss", num_text(Some(m.threshold_percent))),
+            reached: m.reached,
+            reached_on: m.date_reached.map(fmt::date).unwrap_or_default(),
         })
-        .unwrap_or_default()
+        .collect()
 }
 
 /// The latest plateau that reaches into the last four weeks before the period, with its
@@ -1174,6 +1178,37 @@ mod activity_unread_tests {
             .unwrap()
             .value
             .clone()
+    }
+
+    /// Sample program, September 2026, SG-018 (left on 27 July): "5 % loss · not yet", "7 %
+    /// loss · not yet" in a report that sums up the records up to the day they left.
+    #[test]
+    fn someone_who_left_sees_only_the_milestones_reached() {
+        use cohortpress_metric_outcomes::view::MilestoneRow;
+        let row = |p: f64, on: Option<&str>| MilestoneRow {
+            threshold_percent: p,
+            threshold_weight_kg: None,
+            reached: on.is_some(),
+            date_reached: on.map(|d| d.parse().unwrap()),
+        };
+        let rows = [row(3.0, Some("2026-06-09")), row(5.0, None), row(7.0, None)];
+        let labels = |v: Vec<MilestoneView>| {
+            v.into_iter()
+                .map(|m| (m.label, m.reached))
+                .collect::<Vec<_>>()
+        };
+        assert_eq!(
+            labels(milestones(&rows, true, true)),
+            [("3 % loss".to_string(), true)]
+        );
+        assert_eq!(
+            labels(milestones(&rows, true, false)),
+            [
+                ("3 % loss".to_string(), true),
+                ("5 % loss".to_string(), false),
+                ("7 % loss".to_string(), false)
+            ]
+        );
     }
 
     /// Sample program, September 2026, SG-001: "Weigh-ins per week 1.4" and "Activity minutes
