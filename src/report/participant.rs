@@ -191,7 +191,7 @@ pub fn build(
                 .round()
                 .max(1.0) as u64;
             let span = energy_window_words(window_days, p.enrolled, plan.period.to);
-            let (view, chart) = energy_section(e, &span);
+            let (view, chart) = energy_section(e, &span, left.filter(|w| *w < plan.period.from));
             (Some(view), chart)
         }
         None => (None, None),
@@ -877,7 +877,17 @@ fn day_count(days: i64) -> String {
 /// minus the energy stored); the weeks use the resting-energy equation × the person's activity
 /// level + that week's logged activity. Both say which they are, so a reader comparing the
 /// summary with the last weeks knows why they differ.
-fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) {
+///
+/// Someone who left before the period began (`left_before`) has no records in it: the period's
+/// activity, energy use and intake would describe the days after they left (sample program,
+/// September 2026, SG-018, left 27 July: "Activity, beyond resting 0 kcal/day", "Total energy
+/// use per day (equation and activity, this period) 2,939 kcal/day"), so only the resting
+/// energy and the weeks up to the day they left are shown.
+fn energy_section(
+    e: &EnergyResults,
+    span: &str,
+    left_before: Option<NaiveDate>,
+) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
     let push = |items: &mut Vec<Kv>, label: &str, s: Interval| {
         if let Some(v) = s.value {
@@ -936,9 +946,18 @@ fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) 
     } else {
         ""
     };
-    let explanation = format!(
+    let mut explanation = format!(
         "{how_total} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard.{balance} Ranges are 95 % intervals."
     );
+    if let Some(left) = left_before {
+        items.retain(|k| {
+            k.label == "Resting energy (estimated)" || k.label == "Resting-energy equation"
+        });
+        explanation = format!(
+            "You left the program on {}, before this period began, so this period's activity, energy use and intake are not shown: they would describe the days after you left. Resting energy is estimated from a published equation at your last weight; the table below shows your weeks up to the day you left.",
+            fmt::date(left)
+        );
+    }
     let mut table = TableView {
         header: vec![
             "Week of".into(),
@@ -1475,7 +1494,7 @@ mod activity_unread_tests {
                 .label
                 .clone()
         };
-        let (v, chart) = energy_section(&e, "last 4 weeks");
+        let (v, chart) = energy_section(&e, "last 4 weeks", None);
         assert!(chart.is_some());
         assert_eq!(
             label(&v),
@@ -1487,7 +1506,7 @@ mod activity_unread_tests {
         );
         assert!(v.explanation.contains("so the two can differ"));
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
-        let (v, _) = energy_section(&e, "last 30 days");
+        let (v, _) = energy_section(&e, "last 30 days", None);
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
         // The balance and the gap say what they are (sample program, September 2026, SG-001:
         // "Implied minus logged +670" and "Energy balance (implied) +59", both unexplained).
@@ -1510,14 +1529,28 @@ mod activity_unread_tests {
             );
         }
         e.energy_balance_kcal_per_day.value = Some(59.0);
-        let (v, _) = energy_section(&e, "last 4 weeks");
+        let (v, _) = energy_section(&e, "last 4 weeks", None);
         assert!(v.explanation.contains("above zero your body stored energy"));
         e.energy_balance_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, "last 4 weeks");
+        let (v, _) = energy_section(&e, "last 4 weeks", None);
         assert!(!v.explanation.contains("The energy balance is"));
+        // Someone who left before the period: no figures for the days after they left.
+        let left = NaiveDate::from_ymd_opt(2026, 7, 27).unwrap();
+        let (v, _) = energy_section(&e, "last 4 weeks", Some(left));
+        let labels: Vec<&str> = v.items.iter().map(|k| k.label.as_str()).collect();
+        assert_eq!(
+            labels,
+            ["Resting energy (estimated)", "Resting-energy equation"]
+        );
+        assert!(
+            v.explanation
+                .starts_with("You left the program on 27 Jul 2026, before this period began"),
+            "{}",
+            v.explanation
+        );
         // Without an implied intake the total is the equation's, over the period.
         e.implied_intake_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, "last 4 weeks");
+        let (v, _) = energy_section(&e, "last 4 weeks", None);
         assert_eq!(
             label(&v),
             "Total energy use per day (equation and activity, this period)"
