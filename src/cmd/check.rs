@@ -99,9 +99,16 @@ pub fn write_report_with(
                 writeln!(out, "{d}")?;
             }
             let (e, _) = diag::count(diags);
+            // A program folder that does not exist (or is not a folder) has no program.yaml to
+            // be invalid: name what the errors are about.
+            let what = if diags.iter().all(|d| d.file == "program.yaml") {
+                "program.yaml is invalid"
+            } else {
+                "the program folder is invalid"
+            };
             writeln!(
                 out,
-                "program.yaml is invalid ({e} error{}); nothing was checked further",
+                "{what} ({e} error{}); nothing was checked further",
                 plural(e)
             )?;
             return Ok(());
@@ -141,7 +148,12 @@ pub fn write_report_with(
                 .then(a.0.1.cmp(&b.0.1))
         });
         writeln!(out)?;
-        writeln!(out, "summary by kind ({} kinds):", list.len())?;
+        writeln!(
+            out,
+            "summary by kind ({} kind{}):",
+            list.len(),
+            plural(list.len())
+        )?;
         for ((sev, _), k) in list.iter().take(KINDS_SHOWN) {
             let first = k.examples[0];
             let who = match k.participants.len() {
@@ -545,5 +557,25 @@ mod tests {
         assert_eq!(code, exit_code::PROGRAM_INVALID);
         assert!(out.contains("missing field `program`"), "{out}");
         assert!(out.contains("program.yaml is invalid"), "{out}");
+    }
+
+    /// `check` of a folder that does not exist said "program.yaml is invalid (1 error)" under
+    /// "the program folder does not exist"; and one kind of problem was "(1 kinds)".
+    #[test]
+    fn a_missing_program_folder_is_not_called_an_invalid_program_yaml() {
+        let tmp = tempfile::tempdir().unwrap();
+        let (code, out) = run(&tmp.path().join("no-such-program"));
+        assert_eq!(code, exit_code::PROGRAM_INVALID, "{out}");
+        assert!(out.contains("the program folder does not exist"), "{out}");
+        assert!(
+            out.contains("the program folder is invalid (1 error); nothing was checked further"),
+            "{out}"
+        );
+        assert!(!out.contains("program.yaml is invalid"), "{out}");
+
+        let tmp = program_dir();
+        fs::remove_dir(tmp.path().join("participants")).ok();
+        let (_, out) = run(tmp.path());
+        assert!(out.contains("summary by kind (1 kind):"), "{out}");
     }
 }

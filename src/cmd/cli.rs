@@ -148,10 +148,12 @@ pub struct RunArgs {
     /// Output folder (default: program.yaml's report.out, relative to the program folder).
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
-    /// Only these participants (ids); the group report then covers only them.
+    /// Only these participants (ids): their reports and tidy metrics, and no group report (a
+    /// group report covers the whole program, never a hand-picked subset). Needs an output
+    /// folder of its own (`--out`), not the complete output.
     #[arg(long, value_name = "ID", num_args = 1..)]
     pub only: Vec<String>,
-    /// Worker threads (default: number of cores).
+    /// Worker threads, 1 to 512 (default: number of cores).
     #[arg(long, short = 'j', value_name = "N")]
     pub jobs: Option<usize>,
     /// Formats to write (default: program.yaml's report.formats).
@@ -217,4 +219,31 @@ fn exit_codes_help() -> String {
         s.push_str(&format!("  {code:>3}  {text}\n"));
     }
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    fn run_help() -> String {
+        let mut cmd = Cli::command();
+        cmd.find_subcommand_mut("run")
+            .expect("run subcommand")
+            .render_long_help()
+            .to_string()
+    }
+
+    /// `run --help` said "--only …: the group report then covers only them", while a run with
+    /// `--only` writes no group report at all (README, "Across releases").
+    #[test]
+    fn run_help_says_only_writes_no_group_report() {
+        let help = run_help();
+        assert!(
+            !help.contains("the group report then covers only them"),
+            "{help}"
+        );
+        assert!(help.contains("and no group report"), "{help}");
+        assert!(help.contains("Worker threads, 1 to 512"), "{help}");
+    }
 }

@@ -109,11 +109,16 @@ fn init_logging(quiet: bool, format: LogFormat) {
         .with_env_filter(filter)
         .with_writer(std::io::stderr)
         .with_target(false)
-        .with_ansi(std::io::IsTerminal::is_terminal(&std::io::stderr()))
-        .without_time();
+        .with_ansi(std::io::IsTerminal::is_terminal(&std::io::stderr()));
+    // A JSON line carries its time (UTC): cron appends every month's run to one log file, whose
+    // lines could not otherwise be told apart. Text lines, for a person at a terminal, stay
+    // short. Output files never hold a clock time either way.
     let _ = match format {
-        LogFormat::Text => builder.try_init(),
-        LogFormat::Json => builder.json().try_init(),
+        LogFormat::Text => builder.without_time().try_init(),
+        LogFormat::Json => builder
+            .with_timer(tracing_subscriber::fmt::time::SystemTime)
+            .json()
+            .try_init(),
     };
 }
 

@@ -237,6 +237,8 @@ pub struct FollowupContext {
     pub participants: usize,
     /// Of whom with at least one flag new this period.
     pub with_new: usize,
+    /// The two counts in a sentence, with the right plurals.
+    pub summary: String,
     /// The previous period compared with, in words (or why there is none).
     pub compared_with: String,
     /// One row per flag: participant, name, status, reason, values, dates, details.
@@ -281,6 +283,25 @@ fn pretty_dates(s: &str) -> String {
 /// Who should see the list, and why (printed on it and in the README).
 pub const PURPOSE: &str = "This list is for the program's clinician (or the licensed professional the program names), so that each participant whose records raised a clinical flag is offered a review. It names people and holds health data: keep it with clinical records, share it with nobody else, and do not use it to judge or rank participants. Flags come from self-reported records and published cut-offs; they call for a conversation, not a diagnosis.";
 
+/// The list's opening line: how many participants it holds and how many with a new flag. It
+/// read "3 participant(s) with a clinical flag this period; 0 with a flag that is new" (sample
+/// program, September 2026).
+fn summary_line(participants: usize, with_new: usize) -> String {
+    match (participants, with_new) {
+        (0, _) => "No participant has a clinical flag this period.".into(),
+        (1, 0) => {
+            "1 participant with a clinical flag this period; no flag of theirs is new.".into()
+        }
+        (1, _) => "1 participant with a clinical flag this period; a flag of theirs is new.".into(),
+        (n, 0) => {
+            format!("{n} participants with a clinical flag this period; none of the flags is new.")
+        }
+        (n, k) => format!(
+            "{n} participants with a clinical flag this period; {k} of them with a flag that is new."
+        ),
+    }
+}
+
 /// The follow-up context for a set of records (sorted by id).
 pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext {
     let recipient = plan
@@ -298,6 +319,10 @@ pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext 
         ),
         None => "This is the program's first period, so every flag is new.".into(),
     };
+    let with_new = records
+        .iter()
+        .filter(|r| r.items.iter().any(|i| i.new))
+        .count();
     let mut rows = Vec::new();
     for r in records {
         let vals = values(r, plan);
@@ -318,10 +343,8 @@ pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext 
         recipient,
         purpose: PURPOSE.into(),
         participants: records.len(),
-        with_new: records
-            .iter()
-            .filter(|r| r.items.iter().any(|i| i.new))
-            .count(),
+        with_new,
+        summary: summary_line(records.len(), with_new),
         compared_with,
         table: TableView {
             header: vec![
@@ -428,6 +451,30 @@ pub fn render(
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn the_opening_line_counts_in_words() {
+        assert_eq!(
+            super::summary_line(3, 0),
+            "3 participants with a clinical flag this period; none of the flags is new."
+        );
+        assert_eq!(
+            super::summary_line(3, 2),
+            "3 participants with a clinical flag this period; 2 of them with a flag that is new."
+        );
+        assert_eq!(
+            super::summary_line(1, 1),
+            "1 participant with a clinical flag this period; a flag of theirs is new."
+        );
+        assert_eq!(
+            super::summary_line(1, 0),
+            "1 participant with a clinical flag this period; no flag of theirs is new."
+        );
+        assert_eq!(
+            super::summary_line(0, 0),
+            "No participant has a clinical flag this period."
+        );
+    }
+
     /// The reason column printed the default thresholds ("below 20", "about 1 kg (2 lb) a
     /// week", "about 800 kcal"), wrong for a program that sets its own; it names none now.
     #[test]

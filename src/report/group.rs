@@ -11,6 +11,7 @@ use crate::group::{ChangeLine, GroupReport, Section, SectionStats};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle,
 };
+use chrono::NaiveDate;
 use serde::Serialize;
 
 /// What the group templates see (documented in `report-templates/CONTEXT.md`).
@@ -144,6 +145,22 @@ fn median_with_n(median: String, n: &Shown<u64>) -> String {
     }
 }
 
+/// A release's period as the ledger keeps it (`2026-08-01 to 2026-08-31`) in the words the rest
+/// of the report uses (`August 2026`); the month-over-month table printed the ISO dates, the
+/// only ones in the report. Anything else is printed as it is.
+fn release_period_words(period: &str) -> String {
+    let parsed = period.split_once(" to ").and_then(|(a, b)| {
+        Some((
+            NaiveDate::parse_from_str(a, "%Y-%m-%d").ok()?,
+            NaiveDate::parse_from_str(b, "%Y-%m-%d").ok()?,
+        ))
+    });
+    match parsed {
+        Some((from, to)) => super::period_label(from, to),
+        None => period.to_string(),
+    }
+}
+
 /// The month-over-month table (whole program, as published in each release).
 fn releases_table(g: &GroupReport) -> TableView {
     if g.releases.is_empty() {
@@ -162,7 +179,7 @@ fn releases_table(g: &GroupReport) -> TableView {
             .iter()
             .map(|r| {
                 vec![
-                    r.period.clone(),
+                    release_period_words(&r.period),
                     r.started.clone(),
                     r.retention.clone(),
                     r.mean_change.clone(),
@@ -235,9 +252,9 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
     if left_out > 0 {
         let n = left_out;
         notes.push(if n == 1 {
-            "One participant folder could not be used because of input errors and is not counted here; the run's data-quality list (metrics/data-quality.csv) names the problems.".to_string()
+            "One participant folder could not be used because of input errors and is not counted here; the program staff's data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems.".to_string()
         } else {
-            format!("{n} participant folders could not be used because of input errors and are not counted here; the run's data-quality list (metrics/data-quality.csv) names the problems.")
+            format!("{n} participant folders could not be used because of input errors and are not counted here; the program staff's data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems.")
         });
     }
     let m = &g.methods;
@@ -352,7 +369,7 @@ fn fill(
             change_row("Completers only", &w.completers),
         ],
     };
-    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The first line is the primary, conservative figure.".into();
+    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The intention-to-treat lines count everyone who started: someone without a weigh-in in the last 4 weeks of the period counts as unchanged (baseline carried forward: the first line, the primary and conservative figure) or at their last weigh-in (last observation carried forward). Completers only counts just those with a weigh-in in the last 4 weeks. CI: 95 % confidence interval, the range the true mean or median likely lies in.".into();
     view.milestones = TableView {
         header: vec![
             "Loss of at least".into(),
@@ -376,7 +393,7 @@ fn fill(
     let a = &st.adherence;
     let p = &st.plateau;
     view.adherence = TableView {
-        header: vec!["Measure".into(), "Median (n)".into()],
+        header: vec!["Measure".into(), "Median (n), or count".into()],
         rows: vec![
             vec![
                 "Activity minutes per week (moderate-equivalent)".into(),
@@ -386,7 +403,7 @@ fn fill(
                 ),
             ],
             vec![
-                "Weigh-ins per week".into(),
+                "Days with a weigh-in per week".into(),
                 median_with_n(
                     num(&a.weigh_ins_per_week.median, 1, ""),
                     &a.weigh_ins_per_week.n,
@@ -407,7 +424,7 @@ fn fill(
                 ),
             ],
             vec![
-                "On a plateau at the end of the period".into(),
+                "On a plateau at the end of the period (count)".into(),
                 match p.in_plateau {
                     // The interval only when it can be shown (never "x % (not shown (…))").
                     Shown::Value(_) => format!(
@@ -426,7 +443,7 @@ fn fill(
                 },
             ],
             vec![
-                "People with a flag for clinician review (count only)".into(),
+                "People with a flag for clinician review (count)".into(),
                 count(&st.with_clinician_review_flag),
             ],
         ],
@@ -568,5 +585,24 @@ fn fill(
                 .into(),
             table: TableView::default(),
         });
+    }
+}
+
+#[cfg(test)]
+mod release_period_tests {
+    /// Sample program, September 2026, after an August run: the month-over-month table's
+    /// periods read "2026-08-01 to 2026-08-31", the only ISO dates in a report that writes
+    /// "1 Apr 2026 – 30 Sep 2026" everywhere else.
+    #[test]
+    fn release_periods_read_as_the_report_names_periods() {
+        assert_eq!(
+            super::release_period_words("2026-08-01 to 2026-08-31"),
+            "August 2026"
+        );
+        assert_eq!(
+            super::release_period_words("2026-09-01 to 2026-09-15"),
+            "1 Sep 2026 – 15 Sep 2026"
+        );
+        assert_eq!(super::release_period_words("spring"), "spring");
     }
 }

@@ -699,16 +699,26 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
     // clinician who prescribes it before eating less" (demo seed 11, SG-038, June: a
     // glucose-lowering medicine and a lab value in the diabetes range; a sulfonylurea or
     // insulin dose set for the old intake can then lower blood sugar too far — common practice).
+    // The paragraphs may carry an amount of their own ("about 2,850 kcal a day holds your
+    // current weight" when the target is reached: sample program, September, SG-025, whose
+    // cautions came after it): the cautions go before the first paragraph that names one.
+    let mut cautions = Vec::new();
     if f.lab_in_diabetes_range {
-        g.paragraphs.push(
-            "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".into(),
+        cautions.push(
+            "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".to_string(),
         );
     }
     if f.glucose_lowering {
-        g.paragraphs.push(
-            "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".into(),
+        cautions.push(
+            "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".to_string(),
         );
     }
+    let at = g
+        .paragraphs
+        .iter()
+        .position(|p| p.contains(" kcal"))
+        .unwrap_or(g.paragraphs.len());
+    g.paragraphs.splice(at..at, cautions);
     g
 }
 
@@ -1642,6 +1652,41 @@ mod tests {
                 "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".to_string(),
             ]
         );
+    }
+
+    /// Sample program, September 2026, SG-025 (target reached, still losing, a glucose-lowering
+    /// medicine, HbA1c 6.8 %): "about 2,850 kcal a day holds your current weight" stood above
+    /// "please check with the clinician who prescribes it before eating less", which the README
+    /// promises is named before any amount.
+    #[test]
+    fn medical_cautions_come_before_the_holding_intake() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.glucose_lowering = true;
+        f.lab_in_diabetes_range = true;
+        let mut s = st(Plateau);
+        s.change_percent = Some(-10.9);
+        let g = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f);
+        let first_amount = g
+            .paragraphs
+            .iter()
+            .position(|p| p.contains(" kcal"))
+            .expect("the holding intake");
+        assert!(
+            g.paragraphs[first_amount].starts_with("By the energy-balance model, about"),
+            "{:?}",
+            g.paragraphs
+        );
+        assert_eq!(
+            g.paragraphs[first_amount - 2..first_amount],
+            [
+                "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".to_string(),
+                "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".to_string(),
+            ],
+            "{:?}",
+            g.paragraphs
+        );
+        assert!(g.paragraphs[0].starts_with("You have reached your target"));
     }
 
     #[test]

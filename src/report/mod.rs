@@ -86,6 +86,20 @@ pub struct Scope<'a> {
     pub as_of: NaiveDate,
 }
 
+/// A period in words, as every report names it: `September 2026` for a whole month, else
+/// `1 Sep 2026 – 15 Sep 2026`.
+pub fn period_label(from: NaiveDate, to: NaiveDate) -> String {
+    let whole_month = from.format("%d").to_string() == "01"
+        && to
+            .succ_opt()
+            .is_some_and(|n| n.format("%d").to_string() == "01");
+    if whole_month {
+        format::month(from)
+    } else {
+        format!("{} – {}", format::date(from), format::date(to))
+    }
+}
+
 /// Program and period, as shown on every report.
 #[derive(Debug, Clone, Serialize)]
 pub struct ProgramView {
@@ -116,15 +130,7 @@ impl ProgramView {
     pub fn new(plan: &Scope<'_>) -> Self {
         let info = &plan.program.info;
         let p = plan.period;
-        let whole_month = p.from.format("%d").to_string() == "01"
-            && p.to
-                .succ_opt()
-                .is_some_and(|n| n.format("%d").to_string() == "01");
-        let period_label = if whole_month {
-            format::month(p.from)
-        } else {
-            format!("{} – {}", format::date(p.from), format::date(p.to))
-        };
+        let period_label = period_label(p.from, p.to);
         ProgramView {
             id: info.id.clone(),
             title: info.title.clone(),

@@ -191,7 +191,7 @@ pub fn build(
                 .round()
                 .max(1.0) as u64;
             let span = energy_window_words(window_days, p.enrolled, plan.period.to);
-            let (view, chart) = energy_section(e, &span);
+            let (view, chart) = energy_section(e, &span, left.filter(|w| *w < plan.period.from));
             (Some(view), chart)
         }
         None => (None, None),
@@ -202,6 +202,7 @@ pub fn build(
                 a,
                 p.targets.activity_minutes_per_week,
                 &activity_unread(diags),
+                &super::ProgramView::new(plan).period_label,
             );
             (Some(view), Some(chart))
         }
@@ -234,7 +235,11 @@ pub fn build(
             Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
         ),
         summary: summary(&v, units, plan.period.to),
-        milestones: milestones(v.outcomes.as_ref(), loss_goal),
+        milestones: v
+            .outcomes
+            .as_ref()
+            .map(|o| milestones(&o.milestones, loss_goal, left.is_some()))
+            .unwrap_or_default(),
         weight_chart: weight_view,
         energy: energy_view,
         adherence: adherence_view,
@@ -347,22 +352,22 @@ fn bmi_text(bmi: f64, category: Option<BmiCategory>) -> String {
 }
 
 /// Milestones (3, 5, 7, 10 % loss) and when they were reached; when loss is not the goal
-/// (target reached, a BMI below the loss cut-off, a target that is not a loss), only those
-/// already reached.
-fn milestones(outcomes: Option<&OutcomesView>, loss_goal: bool) -> Vec<MilestoneView> {
-    outcomes
-        .map(|o| {
-            o.milestones
-                .iter()
-                .filter(|m| loss_goal || m.reached)
-                .map(|m| MilestoneView {
-                    label: format!("{} % loss", num_text(Some(m.threshold_percent))),
-                    reached: m.reached,
-                    reached_on: m.date_reached.map(fmt::date).unwrap_or_default(),
-                })
-                .collect()
+/// (target reached, a BMI below the loss cut-off, a target that is not a loss) or the person
+/// has left the program (sample program, September 2026, SG-018, who left on 27 July: "5 %
+/// loss · not yet" in a report that sums up their records), only those already reached.
+fn milestones(
+    rows: &[cohortpress_metric_outcomes::view::MilestoneRow],
+    loss_goal: bool,
+    left: bool,
+) -> Vec<MilestoneView> {
+    rows.iter()
+        .filter(|m| (loss_goal && !left) || m.reached)
+        .map(|m| MilestoneView {
+            label: format!("{} % loss", num_text(Some(m.threshold_percent))),
+            reached: m.reached,
+            reached_on: m.date_reached.map(fmt::date).unwrap_or_default(),
         })
-        .unwrap_or_default()
+        .collect()
 }
 
 /// The latest plateau that reaches into the last four weeks before the period, with its
@@ -709,6 +714,7 @@ fn weight_chart(
         }
     }
     // No forecast (e.g. after leaving the program): no empty "Forecast" entry in the legend.
+    let mut forecast_to = None;
     if let Some(s) = v
         .energy
         .as_ref()
@@ -728,6 +734,7 @@ fn weight_chart(
             points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
             style: LineStyle::Dashed,
         });
+        forecast_to = s.points.last().map(|p| p.date);
     }
     let mut hlines = Vec::new();
     if let Some(t) = target_kg {
@@ -742,6 +749,7 @@ fn weight_chart(
         plan.period.to,
         !spans.is_empty(),
         target_kg.is_some(),
+        forecast_to,
     );
     // Steps the trend left out: the dots before each sit off the line by the steps after them
     // (with a scale put back, those before the first step sit on it); say where and why.
@@ -794,28 +802,42 @@ fn weight_chart(
 }
 
 /// The weight chart's description. It starts where the person's records do: the program's
-/// start, or their enrolment when they joined later (the chart's axis starts there too).
+/// start, or their enrolment when they joined later (the chart's axis starts there too). A
+/// forecast runs past the period's end (sample program, September 2026: an axis to 9 December
+/// under "Weight chart for 1 Apr 2026 to 30 Sep 2026", the dashed line and its band unnamed):
+/// the description says how far and on what assumption.
 fn weight_chart_alt(
     start: NaiveDate,
     enrolled: NaiveDate,
     to: NaiveDate,
     spans: bool,
     target: bool,
+    forecast_to: Option<NaiveDate>,
 ) -> String {
+    let mut parts = vec!["weigh-ins, the smoothed trend with its 95 % band".to_string()];
+    if spans {
+        parts.push("plateau and regain periods shaded".into());
+    }
+    if target {
+        parts.push("the target weight".into());
+    }
+    if let Some(f) = forecast_to.filter(|f| *f > to) {
+        parts.push(format!(
+            "a forecast to {} (dashed) if you keep eating as in the last weeks, with the range \
+             it may fall in",
+            fmt::date(f)
+        ));
+    }
+    let last = parts.pop().expect("the first part");
+    let list = if parts.is_empty() {
+        last
+    } else {
+        format!("{}, and {last}", parts.join(", "))
+    };
     format!(
-        "Weight chart for {} to {}: weigh-ins, the smoothed trend with its 95 % band{}{}.",
+        "Weight chart for {} to {}: {list}.",
         fmt::date(start.max(enrolled)),
         fmt::date(to),
-        if spans {
-            ", plateau and regain periods shaded"
-        } else {
-            ""
-        },
-        if target {
-            ", and the target weight"
-        } else {
-            ""
-        }
     )
 }
 
@@ -855,7 +877,17 @@ fn day_count(days: i64) -> String {
 /// minus the energy stored); the weeks use the resting-energy equation × the person's activity
 /// level + that week's logged activity. Both say which they are, so a reader comparing the
 /// summary with the last weeks knows why they differ.
-fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) {
+///
+/// Someone who left before the period began (`left_before`) has no records in it: the period's
+/// activity, energy use and intake would describe the days after they left (sample program,
+/// September 2026, SG-018, left 27 July: "Activity, beyond resting 0 kcal/day", "Total energy
+/// use per day (equation and activity, this period) 2,939 kcal/day"), so only the resting
+/// energy and the weeks up to the day they left are shown.
+fn energy_section(
+    e: &EnergyResults,
+    span: &str,
+    left_before: Option<NaiveDate>,
+) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
     let push = |items: &mut Vec<Kv>, label: &str, s: Interval| {
         if let Some(v) = s.value {
@@ -891,7 +923,10 @@ fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) 
         e.implied_intake_kcal_per_day,
     );
     if let Some(g) = e.intake_gap_kcal_per_day.value {
-        items.push(Kv::new("Implied minus logged", &fmt::kcal_change(g)));
+        items.push(Kv::new(
+            "Implied intake minus logged intake",
+            &fmt::kcal_change(g),
+        ));
     }
     if let Some(b) = e.energy_balance_kcal_per_day.value {
         items.push(Kv::new("Energy balance (implied)", &fmt::kcal_change(b)));
@@ -904,9 +939,25 @@ fn energy_section(e: &EnergyResults, span: &str) -> (EnergyView, Option<Chart>) 
     } else {
         "Energy use is estimated from a published equation, your activity level and your logged activity (net of what you would burn resting); the total above covers this period, the table below each week.".to_string()
     };
-    let explanation = format!(
-        "{how_total} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard. Ranges are 95 % intervals."
+    // "Energy balance (implied) +59 kcal/day" stood unexplained (sample program, September
+    // 2026, SG-001): say what it is and which way its sign points.
+    let balance = if e.energy_balance_kcal_per_day.value.is_some() {
+        " The energy balance is the implied intake minus the total energy use: above zero your body stored energy (weight goes up), below zero it drew on its reserves (weight goes down)."
+    } else {
+        ""
+    };
+    let mut explanation = format!(
+        "{how_total} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard.{balance} Ranges are 95 % intervals."
     );
+    if let Some(left) = left_before {
+        items.retain(|k| {
+            k.label == "Resting energy (estimated)" || k.label == "Resting-energy equation"
+        });
+        explanation = format!(
+            "You left the program on {}, before this period began, so this period's activity, energy use and intake are not shown: they would describe the days after you left. Resting energy is estimated from a published equation at your last weight; the table below shows your weeks up to the day you left.",
+            fmt::date(left)
+        );
+    }
     let mut table = TableView {
         header: vec![
             "Week of".into(),
@@ -1009,18 +1060,28 @@ fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
     }
 }
 
+/// The habits section. Its rates are the reporting period's (`period`, as the report's title
+/// names it), the sessions and the longest run since enrolment: each label says which, since
+/// "Weigh-ins per week" beside "attended since you joined" read as the whole program's rate.
 fn adherence_section(
     a: &AdherenceResults,
     target: f64,
     unread: &ActivityUnread,
+    period: &str,
 ) -> (AdherenceView, Chart) {
     let mut items = Vec::new();
     let f1 = |v: Option<f64>| v.map(|v| fmt::fixed(v, 1));
     if let Some(v) = f1(a.weigh_ins_per_week) {
-        items.push(Kv::new("Weigh-ins per week", &v));
+        items.push(Kv::new(
+            &format!("Days with a weigh-in per week, {period}"),
+            &v,
+        ));
     }
     if let Some(v) = f1(a.food_log_days_per_week) {
-        items.push(Kv::new("Days with a food log per week", &v));
+        items.push(Kv::new(
+            &format!("Days with a food log per week, {period}"),
+            &v,
+        ));
     }
     if let Some(v) = a.activity_minutes_per_week {
         // Never "0 minutes" when the log could not be read: say so instead.
@@ -1045,7 +1106,7 @@ fn adherence_section(
             }
         };
         items.push(Kv::new(
-            "Activity minutes per week (moderate-equivalent)",
+            &format!("Activity minutes per week (moderate-equivalent), {period}"),
             &text,
         ));
     }
@@ -1059,14 +1120,14 @@ fn adherence_section(
     }
     if let Some(v) = a.longest_weigh_in_streak_days {
         items.push(Kv::new(
-            "Longest run of daily weigh-ins",
+            "Longest run of daily weigh-ins since you joined",
             &format!("{} days", fmt::fixed(v, 0)),
         ));
     }
     let mut table = TableView {
         header: vec![
             "Week of".into(),
-            "Weigh-ins".into(),
+            "Weigh-in days".into(),
             "Food-log days".into(),
             "Activity min".into(),
             "Sessions".into(),
@@ -1128,13 +1189,91 @@ mod activity_unread_tests {
             activity_minutes_per_week: Some(minutes),
             ..AdherenceResults::default()
         };
-        let (view, _) = adherence_section(&adherence, 150.0, &activity_unread(diags));
+        let (view, _) =
+            adherence_section(&adherence, 150.0, &activity_unread(diags), "September 2026");
         view.items
             .iter()
             .find(|k| k.label.starts_with("Activity minutes"))
             .unwrap()
             .value
             .clone()
+    }
+
+    /// Sample program, September 2026, SG-018 (left on 27 July): "5 % loss · not yet", "7 %
+    /// loss · not yet" in a report that sums up the records up to the day they left.
+    #[test]
+    fn someone_who_left_sees_only_the_milestones_reached() {
+        use cohortpress_metric_outcomes::view::MilestoneRow;
+        let row = |p: f64, on: Option<&str>| MilestoneRow {
+            threshold_percent: p,
+            threshold_weight_kg: None,
+            reached: on.is_some(),
+            date_reached: on.map(|d| d.parse().unwrap()),
+        };
+        let rows = [row(3.0, Some("2026-06-09")), row(5.0, None), row(7.0, None)];
+        let labels = |v: Vec<MilestoneView>| {
+            v.into_iter()
+                .map(|m| (m.label, m.reached))
+                .collect::<Vec<_>>()
+        };
+        assert_eq!(
+            labels(milestones(&rows, true, true)),
+            [("3 % loss".to_string(), true)]
+        );
+        assert_eq!(
+            labels(milestones(&rows, true, false)),
+            [
+                ("3 % loss".to_string(), true),
+                ("5 % loss".to_string(), false),
+                ("7 % loss".to_string(), false)
+            ]
+        );
+    }
+
+    /// Sample program, September 2026, SG-001: "Weigh-ins per week 1.4" and "Activity minutes
+    /// per week 123" (September's rates) stood beside "Group sessions attended since you joined
+    /// 11 of 16" and "Longest run of daily weigh-ins 3 days" (since enrolment), with nothing to
+    /// tell which figure covers which span; the rate counts days with a weigh-in.
+    #[test]
+    fn each_habit_figure_names_its_span() {
+        let adherence = AdherenceResults {
+            weigh_ins_per_week: Some(1.4),
+            food_log_days_per_week: Some(2.6),
+            activity_minutes_per_week: Some(123.0),
+            sessions_attended_to_date: Some(11.0),
+            sessions_offered_to_date: Some(16.0),
+            longest_weigh_in_streak_days: Some(3.0),
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(
+            &adherence,
+            150.0,
+            &ActivityUnread::Nothing,
+            "September 2026",
+        );
+        let items: Vec<(String, String)> = view
+            .items
+            .iter()
+            .map(|k| (k.label.clone(), k.value.clone()))
+            .collect();
+        let want = [
+            ("Days with a weigh-in per week, September 2026", "1.4"),
+            ("Days with a food log per week, September 2026", "2.6"),
+            (
+                "Activity minutes per week (moderate-equivalent), September 2026",
+                "123 (target 150)",
+            ),
+            ("Group sessions attended since you joined", "11 of 16"),
+            ("Longest run of daily weigh-ins since you joined", "3 days"),
+        ];
+        assert_eq!(
+            items,
+            want.iter()
+                .map(|(l, v)| (l.to_string(), v.to_string()))
+                .collect::<Vec<_>>()
+        );
+        // The weekly table's column counts days too.
+        assert_eq!(view.chart.table.header[1], "Weigh-in days");
     }
 
     /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the
@@ -1355,7 +1494,7 @@ mod activity_unread_tests {
                 .label
                 .clone()
         };
-        let (v, chart) = energy_section(&e, "last 4 weeks");
+        let (v, chart) = energy_section(&e, "last 4 weeks", None);
         assert!(chart.is_some());
         assert_eq!(
             label(&v),
@@ -1367,11 +1506,51 @@ mod activity_unread_tests {
         );
         assert!(v.explanation.contains("so the two can differ"));
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
-        let (v, _) = energy_section(&e, "last 30 days");
+        let (v, _) = energy_section(&e, "last 30 days", None);
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
+        // The balance and the gap say what they are (sample program, September 2026, SG-001:
+        // "Implied minus logged +670" and "Energy balance (implied) +59", both unexplained).
+        if e.energy_balance_kcal_per_day.value.is_some() {
+            assert!(
+                v.explanation.contains(
+                    "The energy balance is the implied intake minus the total energy use: above zero your body stored energy (weight goes up), below zero it drew on its reserves (weight goes down)."
+                ),
+                "{}",
+                v.explanation
+            );
+        }
+        if e.intake_gap_kcal_per_day.value.is_some() {
+            assert!(
+                v.items
+                    .iter()
+                    .any(|k| k.label == "Implied intake minus logged intake"),
+                "{:?}",
+                v.items
+            );
+        }
+        e.energy_balance_kcal_per_day.value = Some(59.0);
+        let (v, _) = energy_section(&e, "last 4 weeks", None);
+        assert!(v.explanation.contains("above zero your body stored energy"));
+        e.energy_balance_kcal_per_day.value = None;
+        let (v, _) = energy_section(&e, "last 4 weeks", None);
+        assert!(!v.explanation.contains("The energy balance is"));
+        // Someone who left before the period: no figures for the days after they left.
+        let left = NaiveDate::from_ymd_opt(2026, 7, 27).unwrap();
+        let (v, _) = energy_section(&e, "last 4 weeks", Some(left));
+        let labels: Vec<&str> = v.items.iter().map(|k| k.label.as_str()).collect();
+        assert_eq!(
+            labels,
+            ["Resting energy (estimated)", "Resting-energy equation"]
+        );
+        assert!(
+            v.explanation
+                .starts_with("You left the program on 27 Jul 2026, before this period began"),
+            "{}",
+            v.explanation
+        );
         // Without an implied intake the total is the equation's, over the period.
         e.implied_intake_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, "last 4 weeks");
+        let (v, _) = energy_section(&e, "last 4 weeks", None);
         assert_eq!(
             label(&v),
             "Total energy use per day (equation and activity, this period)"
@@ -1418,8 +1597,9 @@ mod activity_unread_tests {
     fn the_weight_chart_of_a_late_joiner_is_described_from_enrolment() {
         let d = |s: &str| s.parse::<NaiveDate>().unwrap();
         let start = d("2026-04-01");
-        let alt =
-            |enrolled: &str| weight_chart_alt(start, d(enrolled), d("2026-04-30"), false, true);
+        let alt = |enrolled: &str| {
+            weight_chart_alt(start, d(enrolled), d("2026-04-30"), false, true, None)
+        };
         assert_eq!(
             alt("2026-04-20"),
             "Weight chart for 20 Apr 2026 to 30 Apr 2026: weigh-ins, the smoothed trend with its 95 % band, and the target weight."
@@ -1427,6 +1607,34 @@ mod activity_unread_tests {
         assert!(alt("2026-04-01").starts_with("Weight chart for 1 Apr 2026 to 30 Apr 2026:"));
         // Enrolled before the program's start date: the program's start.
         assert!(alt("2026-03-20").starts_with("Weight chart for 1 Apr 2026 "));
+    }
+
+    /// Sample program, September 2026, SG-001: the weight chart's axis ran to 9 December with a
+    /// dashed forecast and its band, under "Weight chart for 1 Apr 2026 to 30 Sep 2026:
+    /// weigh-ins, the smoothed trend with its 95 % band, plateau and regain periods shaded".
+    #[test]
+    fn the_weight_chart_names_its_forecast() {
+        let d = |s: &str| s.parse::<NaiveDate>().unwrap();
+        let start = d("2026-04-01");
+        assert_eq!(
+            weight_chart_alt(
+                start,
+                start,
+                d("2026-09-30"),
+                true,
+                false,
+                Some(d("2026-12-09"))
+            ),
+            "Weight chart for 1 Apr 2026 to 30 Sep 2026: weigh-ins, the smoothed trend with its 95 % band, plateau and regain periods shaded, and a forecast to 9 Dec 2026 (dashed) if you keep eating as in the last weeks, with the range it may fall in."
+        );
+        assert_eq!(
+            weight_chart_alt(start, start, d("2026-09-30"), true, true, None),
+            "Weight chart for 1 Apr 2026 to 30 Sep 2026: weigh-ins, the smoothed trend with its 95 % band, plateau and regain periods shaded, and the target weight."
+        );
+        assert_eq!(
+            weight_chart_alt(start, start, d("2026-09-30"), false, false, None),
+            "Weight chart for 1 Apr 2026 to 30 Sep 2026: weigh-ins, the smoothed trend with its 95 % band."
+        );
     }
 
     /// Sample program, April 2026, SG-006 (enrolled 20 April, 7 weigh-ins in 11 days) read

@@ -149,7 +149,7 @@ fn the_group_report_names_only_the_participants_it_leaves_out() {
     // It said "3 participant folders could not be used … and are not counted here".
     assert_eq!(
         left_out_note(&out),
-        "2 participant folders could not be used because of input errors and are not counted here; the run&#x27;s data-quality list (metrics/data-quality.csv) names the problems."
+        "2 participant folders could not be used because of input errors and are not counted here; the program staff&#x27;s data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems."
     );
 }
 
@@ -184,7 +184,7 @@ fn one_persons_weigh_ins_in_two_folders_are_not_counted_twice() {
     assert!(out.join("participants/SG-006.html").exists());
     assert_eq!(
         left_out_note(&out),
-        "2 participant folders could not be used because of input errors and are not counted here; the run&#x27;s data-quality list (metrics/data-quality.csv) names the problems."
+        "2 participant folders could not be used because of input errors and are not counted here; the program staff&#x27;s data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems."
     );
     let dq = fs::read_to_string(out.join("metrics/data-quality.csv")).unwrap();
     let rows: Vec<&str> = dq

@@ -289,6 +289,15 @@ fn a_cron_style_run_logs_json_lines_and_no_progress_bar() {
         let v: serde_json::Value =
             serde_json::from_str(l).unwrap_or_else(|e| panic!("not a JSON line ({e}): {l}"));
         assert!(v["level"].is_string(), "{l}");
+        // Each line its UTC time, so a month's lines can be told from the next month's in a
+        // log that cron appends to (it had none).
+        let ts = v["timestamp"]
+            .as_str()
+            .unwrap_or_else(|| panic!("no timestamp: {l}"));
+        assert!(
+            ts.len() >= 20 && ts.as_bytes()[4] == b'-' && ts.contains('T') && ts.ends_with('Z'),
+            "{l}"
+        );
         messages.push(
             v["fields"]["message"]
                 .as_str()

@@ -1165,17 +1165,26 @@ fn push_gap_flag(out: &mut ModuleOutput, cur: &Current) {
         out.push_flag(
             EnergyFlag::LogsInconsistentWithTrend.as_str(),
             FlagSeverity::Notice,
-            format!(
-                "Logged intake averages {l:.0} kcal/d, while the weight trend implies about \
-                 {:.0} kcal/d (95 % interval {:.0} to {:.0}). Food logs often differ from \
-                 what the weight trend shows (Archer et al. 2013); this is worth a \
-                 conversation about logging, not a judgement.",
+            gap_flag_message(
+                l,
                 i.value,
                 i.lower.unwrap_or(f64::NAN),
-                i.upper.unwrap_or(f64::NAN)
+                i.upper.unwrap_or(f64::NAN),
             ),
         );
     }
+}
+
+/// The words of the logs-versus-trend flag, which the participant's report prints under
+/// "Points to note": in the report's own unit words ("kcal a day", as its prose says; it read
+/// "kcal/d" beside the energy table's "kcal/day").
+fn gap_flag_message(logged: f64, implied: f64, lower: f64, upper: f64) -> String {
+    format!(
+        "Logged intake averages {logged:.0} kcal a day, while the weight trend implies about \
+         {implied:.0} kcal a day (95 % interval {lower:.0} to {upper:.0}). Food logs often \
+         differ from what the weight trend shows (Archer et al. 2013); this is worth a \
+         conversation about logging, not a judgement."
+    )
 }
 
 /// How fast this person's implied intake has moved so far, kcal/d per day: successive

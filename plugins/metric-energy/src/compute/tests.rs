@@ -1101,3 +1101,16 @@ fn a_pregnancy_gives_no_implied_intake_and_says_why() {
     let opt = out.table("options").unwrap();
     assert_eq!(cell_num(opt, 0, "change_per_day"), None);
 }
+
+/// Sample program, September 2026, SG-013: "Points to note" printed "Logged intake averages
+/// 1,600 kcal/d, while the weight trend implies about 2,895 kcal/d", beside the report's
+/// "1,600 kcal/day" and prose in "kcal a day".
+#[test]
+fn the_logs_versus_trend_flag_speaks_in_kcal_a_day() {
+    assert_eq!(
+        super::gap_flag_message(1600.2, 2895.4, 2265.0, 3524.0),
+        "Logged intake averages 1600 kcal a day, while the weight trend implies about 2895 kcal a \
+         day (95 % interval 2265 to 3524). Food logs often differ from what the weight trend \
+         shows (Archer et al. 2013); this is worth a conversation about logging, not a judgement."
+    );
+}
