@@ -34,7 +34,9 @@ impl NumberError {
             NumberError::OutOfRange | NumberError::NotFinite => {
                 "write the measured value as a plain number such as `72.5`; check for a typing or export error"
             }
-            NumberError::NotANumber => "write a plain number such as `72.5` (no units or words)",
+            NumberError::NotANumber => {
+                "write a number such as `72.5` (no words; where a unit is allowed, after the number: `72.5 kg`)"
+            }
         }
     }
 

@@ -436,6 +436,19 @@ fn plausible_kg(kg: f64) -> bool {
     kg >= WEIGHT_KG_RANGE.0 && kg <= WEIGHT_KG_RANGE.1
 }
 
+/// A weight whose unit in the cell disagrees with its row's unit column or the header.
+struct UnitConflict {
+    line: u64,
+    column: Option<u64>,
+    raw: String,
+    /// The unit written in the cell.
+    written: &'static str,
+    /// Who declares the other unit, in words (`the \`unit\` column says \`lb\``).
+    by: String,
+    /// The declared unit.
+    said: &'static str,
+}
+
 /// Parses `weights.csv`. `None` when the file cannot be used (an error was pushed).
 pub fn parse_weights(
     text: &str,
@@ -445,9 +458,10 @@ pub fn parse_weights(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<WeighIn>> {
     let table = read_table(text, &WEIGHTS, opts, ctx, diags)?;
-    // The first weight whose unit in the cell disagrees with the unit column or header: the
-    // file cannot say which is right, so it is not used.
-    let mut conflict: Option<Diagnostic> = None;
+    // Weights whose unit in the cell disagrees with the unit column or header, and how many
+    // rows declare a unit there: see after the rows.
+    let mut conflicts: Vec<UnitConflict> = Vec::new();
+    let mut declared_rows = 0usize;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         const DROP: &str = "the row is dropped";
         // A spreadsheet's `Average` (or `Max`…) row with a date, marked in a column of its own:
@@ -509,6 +523,7 @@ pub fn parse_weights(
                 }
             },
         };
+        declared_rows += usize::from(declared.is_some());
         let unit = match (in_cell, declared) {
             (Some(cell), Some(said)) if cell.mass_unit() != said => {
                 let by = if c.text("unit").is_some() {
@@ -520,20 +535,13 @@ pub fn parse_weights(
                         said.symbol()
                     )
                 };
-                conflict.get_or_insert_with(|| {
-                    c.ctx
-                        .error(format!(
-                            "the weight `{raw}` is written in {} but {by}; the file is not used, as it cannot say which unit its weights are in",
-                            cell.mass_unit().symbol()
-                        ))
-                        .at(c.row.line, c.table.column("weight"))
-                        .field("weight")
-                        .expected(format!(
-                            "weights in {} (the unit the file declares), with or without the unit in the cell",
-                            said.symbol()
-                        ))
-                        .found(format!("`{raw}`"))
-                        .hint("correct the cell or the unit; a unit written in the weight cells needs no `unit` column")
+                conflicts.push(UnitConflict {
+                    line: c.row.line,
+                    column: c.table.column("weight"),
+                    raw: raw.to_string(),
+                    written: cell.mass_unit().symbol(),
+                    by,
+                    said: said.symbol(),
                 });
                 return None;
             }
@@ -585,9 +593,47 @@ pub fn parse_weights(
             source: c.text("source").map(str::to_string),
         })
     });
-    if let Some(e) = conflict {
-        diags.push(e);
+    // A cell and its row's unit that disagree cannot say which is right. When at least half of
+    // the rows that declare a unit disagree so, the declared unit is wrong throughout and the
+    // file is not used; fewer are slips in single rows, dropped one by one (one `86.5 kg` typed
+    // among a hundred weigh-ins under `lb` had cost the person all of them).
+    if let Some(first) = conflicts.first()
+        && conflicts.len() * 2 >= declared_rows
+    {
+        diags.push(
+            ctx.error(format!(
+                "the weight `{}` is written in {} but {}; {} of the {declared_rows} weights with a declared unit disagree so, and the file is not used, as it cannot say which unit its weights are in",
+                first.raw,
+                first.written,
+                first.by,
+                conflicts.len()
+            ))
+            .at(first.line, first.column)
+            .field("weight")
+            .expected(format!(
+                "weights in {} (the unit the file declares), with or without the unit in the cell",
+                first.said
+            ))
+            .found(format!("`{}`", first.raw))
+            .hint("correct the cells or the unit; a unit written in the weight cells needs no `unit` column"),
+        );
         return None;
+    }
+    for k in &conflicts {
+        diags.push(
+            ctx.warning(format!(
+                "the weight `{}` is written in {} but {}; the row is dropped, as it cannot say which unit it is in",
+                k.raw, k.written, k.by
+            ))
+            .at(k.line, k.column)
+            .field("weight")
+            .expected(format!(
+                "a weight in {} (the unit the row declares), with or without the unit in the cell",
+                k.said
+            ))
+            .found(format!("`{}`", k.raw))
+            .hint("correct the cell or the row's unit"),
+        );
     }
     let rows: Vec<Parsed<RawWeight>> = rows
         .into_iter()

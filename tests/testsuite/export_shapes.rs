@@ -17,7 +17,7 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("weights-scale-kg-in-cell.csv", 4, false),
     ("weights-app-lb-in-cell.csv", 3, false),
     ("weights-stones-and-pounds.csv", 5, false),
-    ("weights-unit-column-disagrees.csv", 0, true),
+    ("weights-unit-column-disagrees.csv", 2, false),
     ("weights-header-unit-brackets.csv", 2, false),
     ("weights-header-unit-stones.csv", 2, false),
     ("weights-excel-serial-1900.csv", 3, false),
@@ -166,12 +166,14 @@ fn every_export_shape_keeps_the_rows_it_should_and_refuses_what_it_cannot_read()
             let e = g.errors()[0];
             assert!(e.line.is_some() && e.column.is_some(), "{file}: {e}");
         } else {
-            // Columns we do not read (`Meal`, `Notes`, `Source` of a kind we have) are named;
-            // nothing else is wrong with these files.
+            // Columns we do not read (`Meal`, `Notes`, `Source` of a kind we have) are named,
+            // and so is a row whose cell and unit column disagree (checked below); nothing else
+            // is wrong with these files.
             let other: Vec<_> = g
                 .diags
                 .iter()
                 .filter(|d| !d.message.starts_with("extra column"))
+                .filter(|d| !d.message.ends_with("as it cannot say which unit it is in"))
                 .collect();
             assert!(other.is_empty(), "{file}: {other:#?}");
         }
@@ -278,10 +280,15 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         days("weights-clinic-us-dates.csv"),
         [d(5, 4), d(5, 18), d(6, 1)]
     );
-    // The refusals name the cell and both readings.
-    let e = got["weights-unit-column-disagrees.csv"].errors()[0];
-    assert_eq!((e.line, e.column), (Some(3), Some(2)));
+    // A row whose cell and unit column disagree is dropped, named at its cell; the others stay.
+    same(kg("weights-unit-column-disagrees.csv"), &[72.5, 72.3]);
+    let e = &got["weights-unit-column-disagrees.csv"].diags[0];
+    assert_eq!(
+        (e.severity, e.line, e.column),
+        (Severity::Warning, Some(3), Some(2))
+    );
     assert_eq!(e.found.as_deref(), Some("`160.4 lb`"));
+    // The refusals name the cell and both readings.
     let e = got["weights-ambiguous-slash-dates.csv"].errors()[0];
     assert_eq!((e.line, e.column), (Some(2), Some(1)));
     assert_eq!(e.found.as_deref(), Some("`04/05/2026`"));

@@ -436,24 +436,43 @@ fn units_written_in_the_weight_cells_are_read() {
 }
 
 /// A unit in the cell that the unit column or header contradicts: which one is right cannot be
-/// known, so the file is refused, at the first such cell.
+/// known. One such row among others is a slip: that row is dropped with a warning at its cell
+/// (it had cost the person the whole file). When at least half of the rows that declare a unit
+/// disagree, the declared unit is wrong throughout: the file is refused at the first such cell.
 #[test]
-fn a_unit_in_the_cell_that_disagrees_with_the_file_refuses_it() {
+fn a_unit_in_the_cell_that_disagrees_with_its_row_drops_the_row_or_refuses_the_file() {
     let (w, diags) = weights_or_error(
         "date,weight,unit\n2026-04-01,72.5,kg\n2026-04-02,160.4 lb,kg\n2026-04-03,72.3,kg\n",
     );
-    assert!(w.is_none());
+    let kept: Vec<f64> = w.unwrap().iter().map(|x| x.weight.kg()).collect();
+    assert_eq!(kept, [72.5, 72.3]);
     assert_eq!(diags.len(), 1, "{diags:#?}");
     let e = &diags[0];
-    assert_eq!(e.severity, Severity::Error);
+    assert_eq!(e.severity, Severity::Warning);
     assert_eq!(e.file, "participants/P1/weights.csv");
     assert_eq!((e.line, e.column), (Some(3), Some(2)));
     assert!(
-        e.message
-            .contains("`160.4 lb` is written in lb but the `unit` column says `kg`"),
+        e.message.contains(
+            "`160.4 lb` is written in lb but the `unit` column says `kg`; the row is dropped"
+        ),
         "{e}"
     );
     assert_eq!(e.found.as_deref(), Some("`160.4 lb`"));
+    // Two of three rows disagree: the declared unit is wrong throughout.
+    let (w, diags) = weights_or_error(
+        "date,weight,unit\n2026-04-01,72.5,kg\n2026-04-02,160.4 lb,kg\n2026-04-03,160.2 lb,kg\n",
+    );
+    assert!(w.is_none());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].severity, Severity::Error);
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(2)));
+    assert!(
+        diags[0]
+            .message
+            .contains("2 of the 3 weights with a declared unit disagree so"),
+        "{}",
+        diags[0]
+    );
     let (w, diags) = weights_or_error("Date,Weight (kg)\n2026-04-01,14 st 2 lb\n");
     assert!(w.is_none());
     assert!(
