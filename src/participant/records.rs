@@ -436,17 +436,76 @@ fn plausible_kg(kg: f64) -> bool {
     kg >= WEIGHT_KG_RANGE.0 && kg <= WEIGHT_KG_RANGE.1
 }
 
-/// A weight whose unit in the cell disagrees with its row's unit column or the header.
+/// A value whose unit written in its cell disagrees with the unit its row declares (a `unit`
+/// column or the column's header).
 struct UnitConflict {
     line: u64,
     column: Option<u64>,
+    /// The column, as diagnostics name it (`weight`, `kcal`, `minutes`).
+    field: &'static str,
+    /// What the value is, in words (`weight`, `energy`, `duration`).
+    what: &'static str,
     raw: String,
     /// The unit written in the cell.
-    written: &'static str,
+    written: String,
     /// Who declares the other unit, in words (`the \`unit\` column says \`lb\``).
     by: String,
     /// The declared unit.
-    said: &'static str,
+    said: String,
+}
+
+/// Settles a file's [`UnitConflict`]s, `declared_rows` the rows that declare a unit. A cell and
+/// its row's declared unit that disagree cannot say which is right. When at least half of the
+/// rows that declare a unit disagree so, the declared unit is wrong throughout: the file is not
+/// used (an error at the first; `false`). Fewer are slips in single rows, each dropped with a
+/// warning at its cell (one `86.5 kg` typed among a hundred weigh-ins under `lb` had cost the
+/// person all of them).
+fn settle_unit_conflicts(
+    conflicts: &[UnitConflict],
+    declared_rows: usize,
+    ctx: &FileCtx,
+    diags: &mut Vec<Diagnostic>,
+) -> bool {
+    if let Some(k) = conflicts.first()
+        && conflicts.len() * 2 >= declared_rows
+    {
+        diags.push(
+            ctx.error(format!(
+                "the {} `{}` is written in {} but {}; {} of the {declared_rows} rows that declare a unit disagree so, and the file is not used, as it cannot say which unit its values are in",
+                k.what,
+                k.raw,
+                k.written,
+                k.by,
+                conflicts.len()
+            ))
+            .at(k.line, k.column)
+            .field(k.field)
+            .expected(format!(
+                "values in {} (the unit the file declares), with or without the unit in the cell",
+                k.said
+            ))
+            .found(format!("`{}`", k.raw))
+            .hint("correct the cells or the declared unit; a unit written in every cell needs none declared"),
+        );
+        return false;
+    }
+    for k in conflicts {
+        diags.push(
+            ctx.warning(format!(
+                "the {} `{}` is written in {} but {}; the row is dropped, as it cannot say which unit it is in",
+                k.what, k.raw, k.written, k.by
+            ))
+            .at(k.line, k.column)
+            .field(k.field)
+            .expected(format!(
+                "a value in {} (the unit the row declares), with or without the unit in the cell",
+                k.said
+            ))
+            .found(format!("`{}`", k.raw))
+            .hint("correct the cell or the row's unit"),
+        );
+    }
+    true
 }
 
 /// Parses `weights.csv`. `None` when the file cannot be used (an error was pushed).
@@ -538,10 +597,12 @@ pub fn parse_weights(
                 conflicts.push(UnitConflict {
                     line: c.row.line,
                     column: c.table.column("weight"),
+                    field: "weight",
+                    what: "weight",
                     raw: raw.to_string(),
-                    written: cell.mass_unit().symbol(),
+                    written: cell.mass_unit().symbol().to_string(),
                     by,
-                    said: said.symbol(),
+                    said: said.symbol().to_string(),
                 });
                 return None;
             }
@@ -593,47 +654,8 @@ pub fn parse_weights(
             source: c.text("source").map(str::to_string),
         })
     });
-    // A cell and its row's unit that disagree cannot say which is right. When at least half of
-    // the rows that declare a unit disagree so, the declared unit is wrong throughout and the
-    // file is not used; fewer are slips in single rows, dropped one by one (one `86.5 kg` typed
-    // among a hundred weigh-ins under `lb` had cost the person all of them).
-    if let Some(first) = conflicts.first()
-        && conflicts.len() * 2 >= declared_rows
-    {
-        diags.push(
-            ctx.error(format!(
-                "the weight `{}` is written in {} but {}; {} of the {declared_rows} weights with a declared unit disagree so, and the file is not used, as it cannot say which unit its weights are in",
-                first.raw,
-                first.written,
-                first.by,
-                conflicts.len()
-            ))
-            .at(first.line, first.column)
-            .field("weight")
-            .expected(format!(
-                "weights in {} (the unit the file declares), with or without the unit in the cell",
-                first.said
-            ))
-            .found(format!("`{}`", first.raw))
-            .hint("correct the cells or the unit; a unit written in the weight cells needs no `unit` column"),
-        );
+    if !settle_unit_conflicts(&conflicts, declared_rows, ctx, diags) {
         return None;
-    }
-    for k in &conflicts {
-        diags.push(
-            ctx.warning(format!(
-                "the weight `{}` is written in {} but {}; the row is dropped, as it cannot say which unit it is in",
-                k.raw, k.written, k.by
-            ))
-            .at(k.line, k.column)
-            .field("weight")
-            .expected(format!(
-                "a weight in {} (the unit the row declares), with or without the unit in the cell",
-                k.said
-            ))
-            .found(format!("`{}`", k.raw))
-            .hint("correct the cell or the row's unit"),
-        );
     }
     let rows: Vec<Parsed<RawWeight>> = rows
         .into_iter()
@@ -930,7 +952,8 @@ pub fn parse_intake(
 ) -> Option<Vec<IntakeDay>> {
     let table = read_table(text, &INTAKE, opts, ctx, diags)?;
     // The first energy whose unit in the cell disagrees with the header's.
-    let mut conflict: Option<Diagnostic> = None;
+    let mut conflicts: Vec<UnitConflict> = Vec::new();
+    let mut declared_rows = 0usize;
     // Whether any cell wrote its energy unit (then an `Energy` header needs none).
     let mut units_in_cells = false;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
@@ -965,23 +988,24 @@ pub fn parse_intake(
         };
         let mut kcal = c.parse_number("kcal", num, "the row is dropped", d)?;
         let header_kj = c.table.header_unit("kcal").map(|u| u == "kj");
+        declared_rows += usize::from(header_kj.is_some());
         if let (Some(cell_kj), Some(said_kj)) = (in_cell, header_kj)
             && cell_kj != said_kj
         {
             let name = |kj: bool| if kj { "kJ" } else { "kcal" };
-            conflict.get_or_insert_with(|| {
-                c.ctx
-                    .error(format!(
-                        "the energy `{raw}` is written in {} but the header `{}` says {}; the file is not used, as it cannot say which unit its energy is in",
-                        name(cell_kj),
-                        c.table.written_header("kcal").unwrap_or("kcal"),
-                        name(said_kj)
-                    ))
-                    .at(c.row.line, c.table.column("kcal"))
-                    .field("kcal")
-                    .expected(format!("energy in {}, as the header says", name(said_kj)))
-                    .found(format!("`{raw}`"))
-                    .hint("correct the cell or the header")
+            conflicts.push(UnitConflict {
+                line: c.row.line,
+                column: c.table.column("kcal"),
+                field: "kcal",
+                what: "energy",
+                raw: raw.to_string(),
+                written: name(cell_kj).to_string(),
+                by: format!(
+                    "the header `{}` says {}",
+                    c.table.written_header("kcal").unwrap_or("kcal"),
+                    name(said_kj)
+                ),
+                said: name(said_kj).to_string(),
             });
             return None;
         }
@@ -1035,8 +1059,7 @@ pub fn parse_intake(
             total,
         })
     });
-    if let Some(e) = conflict {
-        diags.push(e);
+    if !settle_unit_conflicts(&conflicts, declared_rows, ctx, diags) {
         return None;
     }
     note_identical_same_day(&rows, "intake", ctx);
@@ -1292,7 +1315,8 @@ pub fn parse_activity(
     // Unknown labels: (rows, first line), reported once per label.
     let mut unknown: BTreeMap<String, (usize, u64)> = BTreeMap::new();
     // The first duration whose unit in the cell disagrees with the header's.
-    let mut conflict: Option<Diagnostic> = None;
+    let mut conflicts: Vec<UnitConflict> = Vec::new();
+    let mut declared_rows = 0usize;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let activity = c.required_text("activity", d)?;
         // A log's `Total` row is no activity: with a `met` value it was added to the day's
@@ -1306,6 +1330,7 @@ pub fn parse_activity(
             return None;
         }
         let header_hours = matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours"));
+        declared_rows += usize::from(c.table.header_unit("minutes").is_some());
         let raw = c.required_text("minutes", d)?;
         let minutes = match split_duration(&raw) {
             WrittenDuration::Plain(_) | WrittenDuration::Other => {
@@ -1323,17 +1348,18 @@ pub fn parse_activity(
                 if let (Some(u), Some(h)) = (unit, c.table.header_unit("minutes"))
                     && u != if header_hours { "h" } else { "min" }
                 {
-                    conflict.get_or_insert_with(|| {
-                        c.ctx
-                            .error(format!(
-                                "the duration `{raw}` is written in {u} but the header `{}` says {h}; the file is not used, as it cannot say which unit its durations are in",
-                                c.table.written_header("minutes").unwrap_or("minutes")
-                            ))
-                            .at(c.row.line, c.table.column("minutes"))
-                            .field("minutes")
-                            .expected(format!("durations in {h}, as the header says, or with the unit in every cell and none in the header"))
-                            .found(format!("`{raw}`"))
-                            .hint("correct the cell or the header")
+                    conflicts.push(UnitConflict {
+                        line: c.row.line,
+                        column: c.table.column("minutes"),
+                        field: "minutes",
+                        what: "duration",
+                        raw: raw.to_string(),
+                        written: u.to_string(),
+                        by: format!(
+                            "the header `{}` says {h}",
+                            c.table.written_header("minutes").unwrap_or("minutes")
+                        ),
+                        said: h.to_string(),
                     });
                     return None;
                 }
@@ -1403,8 +1429,7 @@ pub fn parse_activity(
         };
         Some((activity, minutes, met, met_source, steps))
     });
-    if let Some(e) = conflict {
-        diags.push(e);
+    if !settle_unit_conflicts(&conflicts, declared_rows, ctx, diags) {
         return None;
     }
     let acol = table.column("activity");

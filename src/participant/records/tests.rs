@@ -469,7 +469,7 @@ fn a_unit_in_the_cell_that_disagrees_with_its_row_drops_the_row_or_refuses_the_f
     assert!(
         diags[0]
             .message
-            .contains("2 of the 3 weights with a declared unit disagree so"),
+            .contains("2 of the 3 rows that declare a unit disagree so"),
         "{}",
         diags[0]
     );
@@ -1060,6 +1060,15 @@ fn durations_written_as_clock_times_or_with_units_are_read() {
         "{}",
         diags[0]
     );
+    // One such slip among more rows costs only its row.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h)\n2026-04-01,Yoga,1\n2026-04-02,Yoga,45 min\n2026-04-03,Yoga,0.5\n",
+    );
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [60.0, 30.0]);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].severity, Severity::Warning);
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(3)));
 }
 
 /// A food diary prints a `Total` row under each day's meals: summed with them, the day was
@@ -1213,6 +1222,27 @@ fn energy_and_grams_written_with_their_units_are_read() {
             .contains("`1900 kcal` is written in kcal but the header `Energy (kJ)` says kJ"),
         "{}",
         diags[0]
+    );
+    // One such slip among more rows costs only its row, with a warning at its cell.
+    let mut diags = Vec::new();
+    let v = parse_intake(
+        "date,Energy (kJ)\n2026-04-01,8000\n2026-04-02,1900 kcal\n2026-04-03,8368\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    // 8000 kJ and 8368 kJ / 4.184 kJ/kcal.
+    let kcal: Vec<f64> = v.iter().map(|i| (i.kcal * 10.0).round() / 10.0).collect();
+    assert_eq!(kcal, [1912.0, 2000.0]);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].severity, Severity::Warning);
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(2)));
+    assert!(
+        diags[0]
+            .message
+            .ends_with("the row is dropped, as it cannot say which unit it is in")
     );
 }
 
