@@ -73,8 +73,8 @@ pub struct Step {
     pub level_before: f64,
 }
 
-/// Pounds per kilogram (1 / 0.45359237, international yard and pound agreement of 1959).
-const LB_PER_KG: f64 = 1.0 / 0.453_592_37;
+/// Pounds per kilogram (the API's exact kilograms per pound, inverted).
+const LB_PER_KG: f64 = 1.0 / cohortpress_metric_api::units::KG_PER_LB;
 /// How close to 2.2046 (or its inverse) the ratio of the levels after and before a step must be
 /// to be read as a change of unit (common practice: weight moves by far less than 6 % in days).
 const UNIT_RATIO_TOLERANCE: f64 = 0.06;
@@ -205,13 +205,17 @@ fn test_boundary(
     let (d1, d2) = (days[i].0, days[i + 1].0);
     let lo = d1 - chrono::Days::new(SIDE_DAYS as u64 - 1);
     let hi = d2 + chrono::Days::new(SIDE_DAYS as u64 - 1);
-    let before: Vec<&(NaiveDate, f64)> = days[..=i]
+    // `days` is in date order: each side's window by binary search, so a record of n days costs
+    // n log n, not n² (every boundary scanned the whole record).
+    let start = days[..=i].partition_point(|d| d.0 < lo);
+    let end = i + 1 + days[i + 1..].partition_point(|d| d.0 <= hi);
+    let before: Vec<&(NaiveDate, f64)> = days[start..=i]
         .iter()
-        .filter(|d| d.0 >= lo && floor.is_none_or(|f| d.0 >= f))
+        .filter(|d| floor.is_none_or(|f| d.0 >= f))
         .collect();
-    let after: Vec<&(NaiveDate, f64)> = days[i + 1..]
+    let after: Vec<&(NaiveDate, f64)> = days[i + 1..end]
         .iter()
-        .filter(|d| d.0 <= hi && ceiling.is_none_or(|c| d.0 < c))
+        .filter(|d| ceiling.is_none_or(|c| d.0 < c))
         .collect();
     if before.len() < MIN_PER_SIDE || after.len() < MIN_PER_SIDE {
         return None;
@@ -295,19 +299,10 @@ fn test_boundary(
     })
 }
 
-/// The median of `xs`, `None` when there are none.
+/// The median of `xs` ([`crate::llt::median_in_place`]), `None` when there are none.
 fn median(xs: impl Iterator<Item = f64>) -> Option<f64> {
     let mut v: Vec<f64> = xs.collect();
-    if v.is_empty() {
-        return None;
-    }
-    v.sort_by(f64::total_cmp);
-    let m = v.len() / 2;
-    Some(if v.len() % 2 == 1 {
-        v[m]
-    } else {
-        0.5 * (v[m - 1] + v[m])
-    })
+    (!v.is_empty()).then(|| crate::llt::median_in_place(&mut v))
 }
 
 #[cfg(test)]
