@@ -355,3 +355,276 @@ pub fn group_json(group: &GroupReport) -> Result<Vec<u8>, TidyError> {
     g.push(b'\n');
     Ok(g)
 }
+
+/// `metrics/datapackage.json`: a description of the four tidy CSV files in the Frictionless
+/// Data Package format (Frictionless Data, "Data Package", "Tabular Data Resource" and "Table
+/// Schema" specifications, v1, specs.frictionlessdata.io), so that an analysis tool reads each
+/// column with its type, unit and meaning instead of guessing them.
+///
+/// # Remarks
+/// Written by hand from [`Columns`] and the modules' declared outputs
+/// ([`cohortpress_metric_api::ModuleSpec`]): the descriptor is a small JSON document, and no
+/// maintained Rust crate writes one. Numbers are `number` (written unrounded, never `NaN` or
+/// infinite), dates `date` (ISO 8601), an empty cell is a missing value, and each file's
+/// primary key is declared where one exists. It holds column names only (group keys and module
+/// outputs), nothing of any participant's data.
+pub fn datapackage(
+    columns: &Columns,
+    specs: &[cohortpress_metric_api::ModuleSpec],
+) -> Result<Vec<u8>, TidyError> {
+    // What a module declares about one of its outputs: "description (unit)".
+    let declared = |module: &str, name: &str| -> String {
+        let out = specs
+            .iter()
+            .find(|s| s.id == module)
+            .and_then(|s| s.outputs.iter().find(|o| o.name == name));
+        match out {
+            Some(o) if !o.unit.is_empty() => format!("{} ({})", o.description, o.unit),
+            Some(o) => o.description.clone(),
+            None => format!("output `{name}` of module `{module}`"),
+        }
+    };
+    let id = || {
+        DpField::required(
+            "participant_id",
+            "string",
+            "participant id (the folder name)",
+        )
+    };
+
+    let mut fields = vec![
+        id(),
+        DpField::required("period_from", "date", "first day of the reporting period"),
+        DpField::required("period_to", "date", "last day of the reporting period"),
+    ];
+    for k in &columns.group_keys {
+        fields.push(DpField::new(
+            format!("group_{k}"),
+            "string",
+            format!("the participant's `{k}` under `groups:` in profile.yaml"),
+        ));
+    }
+    for ((_, m, n), interval) in &columns.scalars {
+        let what = declared(m, n);
+        fields.push(DpField::new(format!("{m}.{n}"), "number", what.clone()));
+        if *interval {
+            for (end, word) in [("lower95", "lower"), ("upper95", "upper")] {
+                fields.push(DpField::new(
+                    format!("{m}.{n}_{end}"),
+                    "number",
+                    format!("{word} end of the 95 % interval of {m}.{n}: {what}"),
+                ));
+            }
+        }
+    }
+    for (_, m, n) in &columns.texts {
+        fields.push(DpField::new(format!("{m}.{n}"), "string", declared(m, n)));
+    }
+    fields.push(DpField::new(
+        "clinical_flags",
+        "string",
+        "codes of the flags for a licensed clinician's review, separated by `;`",
+    ));
+    fields.push(DpField::new(
+        "module_failures",
+        "string",
+        "ids of the modules that failed for this participant, separated by `;`",
+    ));
+    let positive = |name: &str, description: &str, required: bool| DpField {
+        constraints: Some(DpConstraints {
+            required: required.then_some(true),
+            minimum: Some(1),
+            ..Default::default()
+        }),
+        ..DpField::new(name, "integer", description)
+    };
+
+    let package = DpPackage {
+        profile: "tabular-data-package",
+        name: "cohortpress-metrics",
+        title: "cohortpress tidy metrics",
+        description: "The tidy metrics of one run. Every file described here is identified health \
+                      data for the program's own staff and analysts; none goes to the sponsor.",
+        resources: vec![
+            DpResource::new(
+                "participants",
+                "one row per reported participant for the period",
+                fields,
+                &["participant_id"],
+            ),
+            DpResource::new(
+                "weekly",
+                "every module's weekly series in long form; weeks start on Monday",
+                vec![
+                    id(),
+                    DpField::required("module", "string", "module id"),
+                    DpField::required("series", "string", "series name"),
+                    DpField::new("unit", "string", "unit of value, lower95 and upper95"),
+                    DpField::required("week_start", "date", "the Monday the week starts on"),
+                    DpField::new("value", "number", "the week's value"),
+                    DpField::new("lower95", "number", "lower end of its 95 % interval"),
+                    DpField::new("upper95", "number", "upper end of its 95 % interval"),
+                ],
+                &["participant_id", "module", "series", "week_start"],
+            ),
+            DpResource::new(
+                "tables",
+                "every module table in long form, one cell per line",
+                vec![
+                    id(),
+                    DpField::required("module", "string", "module id"),
+                    DpField::required("table", "string", "table name"),
+                    positive("row", "row of the participant's table, from 1", true),
+                    DpField::required("column", "string", "column name"),
+                    DpField::new(
+                        "unit",
+                        "string",
+                        "unit of the value, empty when it has none",
+                    ),
+                    DpField::new(
+                        "value",
+                        "string",
+                        "the cell: a number written unrounded, or text",
+                    ),
+                ],
+                &["participant_id", "module", "table", "row", "column"],
+            ),
+            DpResource::new(
+                "data-quality",
+                "every problem found in the inputs, by participant, file and line",
+                vec![
+                    DpField {
+                        constraints: Some(DpConstraints {
+                            required: Some(true),
+                            r#enum: Some(vec!["error", "warning"]),
+                            ..Default::default()
+                        }),
+                        ..DpField::new(
+                            "severity",
+                            "string",
+                            "error: the file or the participant was left out; warning: a value \
+                             was dropped or looks wrong",
+                        )
+                    },
+                    DpField::new(
+                        "participant_id",
+                        "string",
+                        "participant id; empty for a problem of the program itself",
+                    ),
+                    DpField::required("file", "string", "file, relative to the program folder"),
+                    positive("line", "line in the file, from 1", false),
+                    positive("column", "column in the line, from 1", false),
+                    DpField::new("field", "string", "field or column name"),
+                    DpField::required("message", "string", "what is wrong"),
+                    DpField::new("expected", "string", "what was expected"),
+                    DpField::new("found", "string", "what was found"),
+                    DpField::new("hint", "string", "what to do"),
+                ],
+                &[],
+            ),
+        ],
+    };
+    let mut out = serde_json::to_vec_pretty(&package)?;
+    out.push(b'\n');
+    Ok(out)
+}
+
+/// A Data Package descriptor ([`datapackage`]); fields in the order the specification lists them.
+#[derive(Serialize)]
+struct DpPackage {
+    profile: &'static str,
+    name: &'static str,
+    title: &'static str,
+    description: &'static str,
+    resources: Vec<DpResource>,
+}
+
+/// A Tabular Data Resource: one CSV file and its Table Schema.
+#[derive(Serialize)]
+struct DpResource {
+    name: &'static str,
+    path: String,
+    profile: &'static str,
+    description: &'static str,
+    format: &'static str,
+    mediatype: &'static str,
+    encoding: &'static str,
+    schema: DpSchema,
+}
+
+impl DpResource {
+    fn new(
+        name: &'static str,
+        description: &'static str,
+        fields: Vec<DpField>,
+        key: &[&'static str],
+    ) -> Self {
+        DpResource {
+            name,
+            path: format!("{name}.csv"),
+            profile: "tabular-data-resource",
+            description,
+            format: "csv",
+            mediatype: "text/csv",
+            encoding: "utf-8",
+            schema: DpSchema {
+                fields,
+                missing_values: vec![""],
+                primary_key: key.to_vec(),
+            },
+        }
+    }
+}
+
+/// A Table Schema.
+#[derive(Serialize)]
+#[serde(rename_all = "camelCase")]
+struct DpSchema {
+    fields: Vec<DpField>,
+    missing_values: Vec<&'static str>,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    primary_key: Vec<&'static str>,
+}
+
+/// A Table Schema field descriptor.
+#[derive(Serialize)]
+struct DpField {
+    name: String,
+    #[serde(rename = "type")]
+    ty: &'static str,
+    description: String,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    constraints: Option<DpConstraints>,
+}
+
+impl DpField {
+    fn new(name: impl Into<String>, ty: &'static str, description: impl Into<String>) -> Self {
+        DpField {
+            name: name.into(),
+            ty,
+            description: description.into(),
+            constraints: None,
+        }
+    }
+
+    fn required(name: &str, ty: &'static str, description: &str) -> Self {
+        DpField {
+            constraints: Some(DpConstraints {
+                required: Some(true),
+                ..Default::default()
+            }),
+            ..DpField::new(name, ty, description)
+        }
+    }
+}
+
+/// A field's constraints.
+#[derive(Serialize, Default)]
+struct DpConstraints {
+    #[serde(skip_serializing_if = "Option::is_none")]
+    required: Option<bool>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    minimum: Option<i64>,
+    #[serde(rename = "enum", skip_serializing_if = "Option::is_none")]
+    r#enum: Option<Vec<&'static str>>,
+}

@@ -730,6 +730,10 @@ fn write_tidy(
     weekly.finish()?;
     tables.finish()?;
     staging.write("metrics/data-quality.csv", &tidy::data_quality(diags)?)?;
+    staging.write(
+        "metrics/datapackage.json",
+        &tidy::datapackage(columns, &plan.modules.specs())?,
+    )?;
     if let Some(group) = group {
         staging.write("metrics/group.json", &tidy::group_json(group)?)?;
     }

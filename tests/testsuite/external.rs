@@ -677,6 +677,25 @@ fn binary_run_reports_the_example_modules_metrics() {
     assert_eq!(rows["XP-01"]["steps.days_at_goal_percent"], "40");
     assert_eq!(rows["XP-02"]["steps.mean_daily_steps"], "5100");
     assert_eq!(rows["XP-02"]["steps.days_at_goal_percent"], "0");
+    // The external module's columns are described with what its handshake declared.
+    let metrics = t.dir.join("reports/metrics");
+    assert_eq!(
+        crate::datapackage::check_package(&metrics),
+        Vec::<String>::new()
+    );
+    let package: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(metrics.join("datapackage.json")).unwrap()).unwrap();
+    let field = package["resources"][0]["schema"]["fields"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["name"] == "steps.mean_daily_steps")
+        .expect("the module's column is described");
+    assert_eq!(field["type"], "number");
+    assert!(
+        !field["description"].as_str().unwrap().contains("output `"),
+        "{field}"
+    );
 }
 
 #[test]

@@ -4,6 +4,7 @@
 mod accessibility;
 mod careless;
 mod check;
+mod datapackage;
 mod export_shapes;
 mod exports;
 mod external;

@@ -101,6 +101,10 @@ fn sample_program_runs_end_to_end() {
         gaps.len()
     );
 
+    // Every tidy file is what metrics/datapackage.json says it is, column by column.
+    let problems = crate::datapackage::check_package(&reports.join("metrics"));
+    assert!(problems.is_empty(), "{problems:#?}");
+
     // Module tables in long form: plateaus are assessed, and the sample's adherence drift
     // (by design the commonest story in it) is the commonest decided reading: intake drift is
     // called only when the 95 % interval of the change in implied intake excludes zero, and
