@@ -264,7 +264,18 @@ pub fn run_person(seed: u64, index: usize, days: usize) -> Outcome {
 
 /// [`run_person`] with what `oracle` tells the `energy` module.
 pub fn run_person_with(seed: u64, index: usize, days: usize, oracle: Oracle) -> Outcome {
-    let p = truth::simulate(seed, index, days);
+    run_person_in(seed, index, days, oracle, &truth::Scenario::BASE)
+}
+
+/// [`run_person_with`] for a person simulated in scenario `sc`.
+pub fn run_person_in(
+    seed: u64,
+    index: usize,
+    days: usize,
+    oracle: Oracle,
+    sc: &truth::Scenario,
+) -> Outcome {
+    let p = truth::simulate_in(seed, index, days, sc);
     let data = participant_data(&p, &Targets::default());
     let end = days - 1;
     let settings = oracle.energy_settings(&p);
@@ -401,6 +412,25 @@ pub fn run_cohort_with(
     threads: usize,
     oracle: Oracle,
 ) -> Vec<Outcome> {
+    run_cohort_in(
+        seed,
+        participants,
+        days,
+        threads,
+        oracle,
+        &truth::Scenario::BASE,
+    )
+}
+
+/// [`run_cohort_with`] for a cohort simulated in scenario `sc`.
+pub fn run_cohort_in(
+    seed: u64,
+    participants: usize,
+    days: usize,
+    threads: usize,
+    oracle: Oracle,
+    sc: &truth::Scenario,
+) -> Vec<Outcome> {
     assert!(days >= 120, "the harness needs at least 120 days");
     let threads = threads.clamp(1, 64);
     let mut out: Vec<Option<Outcome>> = vec![None; participants];
@@ -412,7 +442,7 @@ pub fn run_cohort_with(
             let base = k * participants.div_ceil(threads).max(1);
             s.spawn(move || {
                 for (j, slot) in chunk.iter_mut().enumerate() {
-                    *slot = Some(run_person_with(seed, base + j, days, oracle));
+                    *slot = Some(run_person_in(seed, base + j, days, oracle, sc));
                 }
             });
         }

@@ -241,8 +241,87 @@ fn mifflin(male: bool, kg: f64, cm: f64, age: f64) -> f64 {
     10.0 * kg + 6.25 * cm - 5.0 * age + if male { 5.0 } else { -161.0 }
 }
 
+/// How a simulated cohort departs from this simulator's own ranges, to see whether the
+/// estimators stay calibrated on people unlike those they were checked on (VALIDATION.md,
+/// "Stress runs"). Every scenario draws the same random numbers in the same order; only the
+/// ranges they are mapped to differ, so [`Scenario::BASE`] is exactly [`simulate`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Scenario {
+    /// Short name for tables.
+    pub name: &'static str,
+    /// Factor on the marginal SD of the day-to-day fluid scatter (drawn from 0.35–0.9 kg).
+    pub noise: f64,
+    /// Largest lag-one autocorrelation of that scatter (drawn from 0.3 to this).
+    pub phi_max: f64,
+    /// Range of the physical activity level.
+    pub pal: (f64, f64),
+    /// Largest share of intake left out of the food log (drawn from 0 to this).
+    pub underreport_max: f64,
+    /// SD of resting energy around Mifflin–St Jeor, as a fraction.
+    pub rmr_sd: f64,
+    /// Range of the clothing at clinic weigh-ins, kg.
+    pub clothes: (f64, f64),
+}
+
+impl Scenario {
+    /// The simulator's own ranges (VALIDATION.md's main results).
+    pub const BASE: Scenario = Scenario {
+        name: "as simulated",
+        noise: 1.0,
+        phi_max: 0.8,
+        pal: (1.35, 1.95),
+        underreport_max: 0.40,
+        rmr_sd: 0.07,
+        clothes: (0.6, 1.6),
+    };
+
+    /// Departures from [`Scenario::BASE`], one at a time, then all together.
+    pub const STRESS: [Scenario; 6] = [
+        Scenario {
+            name: "scales 1.5× as noisy, scatter more correlated (φ up to 0.9)",
+            noise: 1.5,
+            phi_max: 0.9,
+            ..Scenario::BASE
+        },
+        Scenario {
+            name: "activity level 1.2–2.2 (wider than the prior)",
+            pal: (1.2, 2.2),
+            ..Scenario::BASE
+        },
+        Scenario {
+            name: "under-reporting up to 60 %",
+            underreport_max: 0.60,
+            ..Scenario::BASE
+        },
+        Scenario {
+            name: "resting energy ±12 % around Mifflin–St Jeor",
+            rmr_sd: 0.12,
+            ..Scenario::BASE
+        },
+        Scenario {
+            name: "clinic clothing 0–3 kg",
+            clothes: (0.0, 3.0),
+            ..Scenario::BASE
+        },
+        Scenario {
+            name: "all of the above together",
+            noise: 1.5,
+            phi_max: 0.9,
+            pal: (1.2, 2.2),
+            underreport_max: 0.60,
+            rmr_sd: 0.12,
+            clothes: (0.0, 3.0),
+        },
+    ];
+}
+
 /// Simulates one person for `days` days.
 pub fn simulate(seed: u64, index: usize, days: usize) -> Person {
+    simulate_in(seed, index, days, &Scenario::BASE)
+}
+
+/// [`simulate`] with the ranges of `sc`.
+pub fn simulate_in(seed: u64, index: usize, days: usize, sc: &Scenario) -> Person {
     let mut r = Rng::new(seed, index as u64 + 1);
     let male = r.chance(0.4);
     let age = r.range(25.0, 66.0);
@@ -273,9 +352,9 @@ pub fn simulate(seed: u64, index: usize, days: usize) -> Person {
     // Resting energy differs from Mifflin's prediction person to person (the equation predicts
     // within ±10 % for most adults; Frankenfield et al. 2005, J Am Diet Assoc 105:775, from
     // memory).
-    let rmr0 = mifflin(male, bw0, height_cm, age) * (1.0 + r.gauss(0.0, 0.07));
+    let rmr0 = mifflin(male, bw0, height_cm, age) * (1.0 + r.gauss(0.0, sc.rmr_sd));
     // Physical activity level across FAO/WHO/UNU 2004 "sedentary" to "active".
-    let pal = r.range(1.35, 1.95);
+    let pal = r.range(sc.pal.0, sc.pal.1);
     let ei0 = rmr0 * pal;
     let carb_frac = r.range(0.40, 0.55);
     let ci0 = carb_frac * ei0;
@@ -345,7 +424,7 @@ pub fn simulate(seed: u64, index: usize, days: usize) -> Person {
     // Weekend eating: extra share on Saturday and Sunday; day-to-day scatter.
     let weekend = r.range(0.0, 0.15);
     let scatter = r.range(0.05, 0.15);
-    let underreport = r.range(0.0, 0.40);
+    let underreport = r.range(0.0, sc.underreport_max);
     let log_p0 = r.range(0.4, 0.95);
 
     let mut body = Body {
@@ -412,10 +491,10 @@ pub fn simulate(seed: u64, index: usize, days: usize) -> Person {
     // amplitude ≈0.35 % of body weight), AR(1) fluid scatter, clothed clinic visits.
     let amp = 0.0035 * bw0 * r.range(0.5, 1.5);
     let rhythm = [1.0, 0.5, 0.0, -0.5, -1.0, -0.5, 0.5];
-    let phi = r.range(0.3, 0.8);
-    let marginal_sd = r.range(0.35, 0.9);
+    let phi = r.range(0.3, sc.phi_max);
+    let marginal_sd = sc.noise * r.range(0.35, 0.9);
     let innov_sd = marginal_sd * (1.0 - phi * phi).sqrt();
-    let clothes = r.range(0.6, 1.6);
+    let clothes = r.range(sc.clothes.0, sc.clothes.1);
     let weigh_day = r.range(0.0, 7.0) as usize;
     let mut ar = r.gauss(0.0, marginal_sd);
     let mut obs = Vec::new();

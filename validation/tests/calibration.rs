@@ -74,3 +74,32 @@ fn the_published_cohort_keeps_its_calibration() {
 fn a_second_cohort_keeps_its_calibration() {
     check(7);
 }
+
+/// Scales that are noisier and more correlated than the simulator's (S1 in VALIDATION.md,
+/// "Stress runs") and heavier clinic clothing (S5): the trend estimates the scatter, its
+/// correlation and each source's offset from the person's own weigh-ins, so measurement that
+/// departs from the simulator's ranges must not break the intervals. Measured 92.8 % / 94.4 %
+/// (implied intake) and 92.5 % / 93.3 % (expenditure), forecasts 97.0 % / 96.6 %.
+#[test]
+fn noisier_scales_and_heavier_clothing_keep_the_intervals() {
+    use cohortpress_validation::run_cohort_in;
+    use cohortpress_validation::truth::Scenario;
+    for sc in [Scenario::STRESS[0], Scenario::STRESS[4]] {
+        let s = Summary::of(&run_cohort_in(
+            20_261_202,
+            300,
+            180,
+            2,
+            cohortpress_validation::Oracle::None,
+            &sc,
+        ));
+        for (what, f) in [
+            ("implied-intake interval coverage", s.intake_coverage),
+            ("expenditure interval coverage", s.tdee_coverage),
+            ("forecast band coverage", s.forecast_coverage),
+        ] {
+            let x = f.value.expect("people were scored");
+            assert!(x >= 0.90, "{}: {what} {x:.3} is below 0.90", sc.name);
+        }
+    }
+}
