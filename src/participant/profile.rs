@@ -51,10 +51,15 @@ pub struct ProfileDef {
 }
 
 /// Profile flags that change a report: a glucose-lowering medicine (cautions, and a
-/// medication review with fast loss or low intake) and a pregnancy (no suggestions for change
+/// medication review with fast loss or low intake), a pregnancy (no suggestions for change
 /// until a clinician has been involved; the energy model and the floors are for adults who are
-/// not pregnant).
-pub const KNOWN_FLAGS: [&str; 2] = ["glucose-lowering-medication", "pregnant"];
+/// not pregnant) and steps in the weigh-ins that are real changes of body weight (counted in
+/// the change since the start).
+pub const KNOWN_FLAGS: [&str; 3] = [
+    "glucose-lowering-medication",
+    "pregnant",
+    cohortpress_metric_trend::view::REAL_STEPS_FLAG,
+];
 
 /// A profile flag in its written form: case, spaces and underscores do not matter
 /// (`Glucose_lowering medication` is `glucose-lowering-medication`), and `pregnancy` is

@@ -1396,14 +1396,76 @@ fn a_step_in_the_weigh_ins_is_named_and_left_out_of_the_figures() {
     );
 }
 
+/// The same 6 kg drop, which a clinician found to be real (water tablets started), marked in
+/// the profile with `weigh-in-steps-real`. The change since the start now counts it: 6 kg more
+/// than the same person without the drop, as are the starting weight's milestones; the pace
+/// and the implied intake still leave it out (fluid is not tissue), and the report says so.
+/// Without the flag the change left the drop out (the test above).
+#[test]
+fn a_step_marked_real_in_the_profile_counts_in_the_change_since_the_start() {
+    let jump = chrono::NaiveDate::from_ymd_opt(2026, 9, 12).unwrap();
+    let num = |m: &std::collections::HashMap<String, String>, k: &str| -> f64 {
+        m[k].parse().unwrap_or_else(|_| panic!("{k}: {:?}", m[k]))
+    };
+    let (_, plain_m) = sg007_september(&|_| 0.0);
+    let (html, m) = sg007_september_flagged(
+        &|day| if day >= jump { -6.0 } else { 0.0 },
+        &["weigh-in-steps-real"],
+    );
+    assert!(
+        html.contains("The profile marks such jumps as real changes of body weight"),
+        "{html:.6000}"
+    );
+    let (plain, real) = (
+        num(&plain_m, "outcomes.change_kg"),
+        num(&m, "outcomes.change_kg"),
+    );
+    assert!((real - (plain - 6.0)).abs() < 1.0, "{real} vs {plain} − 6");
+    // The starting weight is the first weigh-in as weighed (95.3 kg on 1 June), not moved.
+    let w0 = num(&m, "outcomes.baseline_weight_kg");
+    assert!((w0 - 95.3).abs() < 0.05, "{w0}");
+    // The pace and the implied intake are the person's own, as without the drop.
+    let rate = num(&m, "outcomes.rate_kg_per_week");
+    assert!((rate + 0.49).abs() < 0.1, "{rate}");
+    let implied = |m| num(m, "energy.implied_intake_kcal_per_day");
+    assert!(
+        (implied(&plain_m) - implied(&m)).abs() < 100.0,
+        "{} vs {}",
+        implied(&plain_m),
+        implied(&m)
+    );
+    // A step first found in this period still goes before a clinician.
+    assert!(
+        m["clinical_flags"].contains("weigh_in_step"),
+        "{}",
+        m["clinical_flags"]
+    );
+}
+
 /// SG-007 of `report-small` losing 0.07 kg a day from 95 kg (June to September 2026, daily
 /// weigh-ins and food logs) with `extra(day)` kg added to each weigh-in, reported for
 /// September: (report HTML, the participant's row of metrics/participants.csv by column name).
 fn sg007_september(
     extra: &dyn Fn(chrono::NaiveDate) -> f64,
 ) -> (String, std::collections::HashMap<String, String>) {
+    sg007_september_flagged(extra, &[])
+}
+
+/// [`sg007_september`] with `flags` in the profile.
+fn sg007_september_flagged(
+    extra: &dyn Fn(chrono::NaiveDate) -> f64,
+    flags: &[&str],
+) -> (String, std::collections::HashMap<String, String>) {
     let prog = ProgramTest::fixture("report-small");
     let p = prog.dir.join("participants/SG-007");
+    if !flags.is_empty() {
+        let profile = std::fs::read_to_string(p.join("profile.yaml")).unwrap();
+        std::fs::write(
+            p.join("profile.yaml"),
+            format!("{profile}flags: [{}]\n", flags.join(", ")),
+        )
+        .unwrap();
+    }
     let start = chrono::NaiveDate::from_ymd_opt(2026, 6, 1).unwrap();
     let mut w = String::from("date,weight,unit\n");
     let mut intake = String::from("date,kcal\n");

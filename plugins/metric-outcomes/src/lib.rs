@@ -13,7 +13,11 @@
 //!   mean, moved by the steps in the weigh-ins that the trend found after it (its
 //!   `weigh_in_steps` table: another scale, or a real jump of fluid or weight, which the trend's
 //!   `weigh_in_step` flag puts before a clinician), so that the change since the start is
-//!   counted on the trend's level. Only weigh-ins up to `period.to` are used.
+//!   counted on the trend's level. When the profile's flags hold `weigh-in-steps-real` (a
+//!   clinician found the steps to be real changes: fluid, surgery), the baseline is not moved
+//!   and the trend levels before each step are put back onto the weigh-ins' level, so the
+//!   change, the milestones and the largest loss count the steps (the pace does not: it is the
+//!   trend's). Only weigh-ins up to `period.to` are used.
 //! * **Current weight** is the `trend` module's `current_weight_kg` (with its interval); without
 //!   a trend output it is the mean of the weigh-ins on the last weigh-in day up to `period.to`.
 //! * **Trend levels** (milestones, largest loss, fast-loss flag) come from the `trend` module's
@@ -86,7 +90,7 @@ pub const MODULE_ID: &str = "outcomes";
 pub mod view;
 
 use cohortpress_metric_api::view::{ModuleView, TableRow};
-use cohortpress_metric_trend::view::{Status, TrendView, step_shift_after};
+use cohortpress_metric_trend::view::{REAL_STEPS_FLAG, Status, TrendView, step_shift_after};
 use view::{
     BmiCategory, CurrentWeightSource, LABS_LABEL, LabCategory, LabRow, MILESTONES_LABEL,
     MilestoneRow, OutcomesFlag, WeightChangeCategory, names,
@@ -761,10 +765,30 @@ impl Weights {
         // Baseline: the first weigh-in day on or after enrolment, mean of that day, moved by
         // the steps the trend found in the weigh-ins since (another scale, a unit mistake): the
         // change since the start is then counted on one level, as the trend is.
+        // When the profile marks the steps as real changes of body weight (fluid, surgery;
+        // `REAL_STEPS_FLAG`), the baseline stays as weighed and the trend levels are put back
+        // onto the weigh-ins' own level before each step, so the change since the start, the
+        // milestones and the largest loss count the steps.
         let raw = daily_means(data, profile.enrolled, to);
         let baseline = raw.first().copied();
+        let real_steps = profile.flags.iter().any(|f| f == REAL_STEPS_FLAG);
         let steps = trend.as_ref().map_or(&[][..], |t| &t.weigh_in_steps[..]);
-        let w0 = baseline.map(|b| b.1 + step_shift_after(steps, b.0));
+        let moved = |d: NaiveDate| {
+            if real_steps {
+                0.0
+            } else {
+                step_shift_after(steps, d)
+            }
+        };
+        let w0 = baseline.map(|b| b.1 + moved(b.0));
+        // What the trend moved a day by, taken off again for real steps.
+        let put_back = |d: NaiveDate| {
+            if real_steps {
+                -step_shift_after(steps, d)
+            } else {
+                0.0
+            }
+        };
 
         // Current weight: the trend's, else the last weigh-in day.
         let trend_current = trend.as_ref().map(|t| t.current_weight_kg);
@@ -784,7 +808,7 @@ impl Weights {
                     .points
                     .iter()
                     .filter(|p| p.date <= to && baseline.is_some_and(|b| p.date >= b.0))
-                    .map(|p| (p.date, p.value))
+                    .map(|p| (p.date, p.value + put_back(p.date)))
                     .collect();
                 by_day.into_iter().collect()
             }

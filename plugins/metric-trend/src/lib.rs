@@ -516,8 +516,9 @@ fn kg_lb(kg: f64) -> String {
     )
 }
 
-/// The `weigh_in_step` flag's message for the steps found (`found`, in date order).
-fn step_message(found: &[step::Step]) -> String {
+/// The `weigh_in_step` flag's message for the steps found (`found`, in date order); `real`
+/// when the profile marks this person's steps as real changes ([`view::REAL_STEPS_FLAG`]).
+fn step_message(found: &[step::Step], real: bool) -> String {
     let one = |s: &step::Step| {
         format!(
             "between {} and {} they went {} by about {}",
@@ -547,6 +548,18 @@ fn step_message(found: &[step::Step]) -> String {
         );
     }
     let list: Vec<String> = found.iter().map(one).collect();
+    if real {
+        return format!(
+            "The weigh-ins jumped and stayed there: {}. The profile marks such jumps as real \
+             changes of body weight ({}), so the weight change since the start counts them; \
+             the trend line, the pace and the energy figures still leave them out, since a \
+             jump of body fluid is not body fat (the earlier weigh-ins are drawn on the level \
+             of the later ones). If a jump is another scale or a typing mistake instead, \
+             remove that flag from the profile.",
+            list.join("; "),
+            view::REAL_STEPS_FLAG
+        );
+    }
     format!(
         "The weigh-ins jumped and stayed there: {}. Body fat does not change that fast: a \
          different scale, clothes, or a unit or typing mistake is likely, but body fluid can \
@@ -846,7 +859,13 @@ fn compute_trend(
         .filter(|s| !s.is_unit_change());
     let mut messages = Vec::new();
     if !found.is_empty() {
-        messages.push(step_message(&found));
+        let real = movable
+            && data
+                .profile
+                .flags
+                .iter()
+                .any(|f| f == view::REAL_STEPS_FLAG);
+        messages.push(step_message(&found, real));
     }
     if let Some(r) = &recent {
         messages.push(recent_step_message(r));

@@ -263,6 +263,12 @@ impl TableRow for WeighInStepRow {
     }
 }
 
+/// Profile flag saying that the steps in this person's weigh-ins are real changes of body
+/// weight (fluid built up or passed, surgery), as a clinician has found: the weight change
+/// since the start then counts them (the `outcomes` module), while the trend and the energy
+/// figures still leave them out, since a jump of fluid is not tissue.
+pub const REAL_STEPS_FLAG: &str = "weigh-in-steps-real";
+
 /// Label of the `weigh_in_steps` table.
 pub const WEIGH_IN_STEPS_LABEL: &str = "Steps in the weigh-ins left out of the trend";
 
