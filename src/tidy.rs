@@ -460,7 +460,11 @@ pub fn datapackage(
                     DpField::required("module", "string", "module id"),
                     DpField::required("series", "string", "series name"),
                     DpField::new("unit", "string", "unit of value, lower95 and upper95"),
-                    DpField::required("week_start", "date", "the Monday the week starts on"),
+                    DpField::required(
+                        "week_start",
+                        "date",
+                        "the week's first day: its Monday, or its first day in the span reported",
+                    ),
                     DpField::new("value", "number", "the week's value"),
                     DpField::new("lower95", "number", "lower end of its 95 % interval"),
                     DpField::new("upper95", "number", "upper end of its 95 % interval"),

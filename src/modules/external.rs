@@ -862,7 +862,8 @@ fn is_output_name(name: &str) -> bool {
 
 /// Checks what the protocol promises about a `result` beyond its JSON shape: names are
 /// snake_case and unique within their kind, a series' `step` is known and its points are sorted
-/// by date, every table row has one cell per column, and flag codes are not empty.
+/// by date (one per date in a daily or weekly series), every table row has one cell per column,
+/// and flag codes are not empty.
 pub fn validate_output(out: &ModuleOutput) -> Result<(), String> {
     fn names<'a>(kind: &str, names: impl Iterator<Item = &'a str>) -> Result<(), String> {
         let mut seen = std::collections::BTreeSet::new();
@@ -896,6 +897,16 @@ pub fn validate_output(out: &ModuleOutput) -> Result<(), String> {
             return Err(format!(
                 "series `{}` is not sorted by date: {} comes after {}",
                 s.name, w[1].date, w[0].date
+            ));
+        }
+        // A daily or weekly series has one point per day or week: `metrics/weekly.csv` is
+        // keyed by participant, module, series and week (its `datapackage.json` says so).
+        if s.step != "irregular"
+            && let Some(w) = s.points.windows(2).find(|w| w[1].date == w[0].date)
+        {
+            return Err(format!(
+                "series `{}` ({}) has two points on {}",
+                s.name, s.step, w[0].date
             ));
         }
     }
@@ -1038,6 +1049,35 @@ impl MetricModule for ExternalModule {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Two points on one date in a weekly series made `metrics/weekly.csv` repeat a key its
+    /// `datapackage.json` declares unique; an irregular series may hold both.
+    #[test]
+    fn a_daily_or_weekly_series_holds_one_point_per_date() {
+        let d = chrono::NaiveDate::from_ymd_opt(2027, 3, 1).unwrap();
+        let point = |value| cohortpress_metric_api::Point {
+            date: d,
+            value,
+            lower: None,
+            upper: None,
+        };
+        let out = |step: &str| ModuleOutput {
+            series: vec![cohortpress_metric_api::Series {
+                name: "weekly_mean_steps".into(),
+                unit: "steps/d".into(),
+                step: step.into(),
+                label: "Steps".into(),
+                points: vec![point(7000.0), point(9000.0)],
+            }],
+            ..Default::default()
+        };
+        assert_eq!(
+            validate_output(&out("weekly")).unwrap_err(),
+            "series `weekly_mean_steps` (weekly) has two points on 2027-03-01"
+        );
+        assert!(validate_output(&out("daily")).is_err());
+        assert_eq!(validate_output(&out("irregular")), Ok(()));
+    }
 
     #[test]
     fn protocol_versions() {
