@@ -76,6 +76,9 @@ fn names_cannot_inject_html_and_ids_cannot_escape_the_output_folder() {
         ),
         "{quality}"
     );
+    // Hostile folders and names still give tidy files that are what their descriptor says.
+    let problems = crate::datapackage::check_package(&Path::new(&o).join("metrics"));
+    assert!(problems.is_empty(), "{problems:#?}");
 
     // The name is shown as text, never as markup.
     let html = std::fs::read_to_string(Path::new(&o).join("participants/SG-001.html")).unwrap();
