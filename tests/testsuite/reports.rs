@@ -944,6 +944,187 @@ fn group_itt_n_is_the_number_of_started_participants() {
     );
 }
 
+/// A count of the group report as printed: exact, or the range it is shown as.
+fn group_count_holds(shown: &serde_json::Value, truth: usize, what: &str) {
+    if let Some(v) = shown.get("value") {
+        assert_eq!(v.as_u64(), Some(truth as u64), "{what}");
+    } else {
+        let lo = shown["at_least"]
+            .as_u64()
+            .unwrap_or_else(|| panic!("{what}: {shown}"));
+        let hi = shown["at_most"]
+            .as_u64()
+            .unwrap_or_else(|| panic!("{what}: {shown}"));
+        assert!(
+            (lo..=hi).contains(&(truth as u64)),
+            "{what}: {truth} outside {lo}–{hi}"
+        );
+    }
+}
+
+/// A figure of the group report as printed, when shown.
+fn group_value(shown: &serde_json::Value) -> Option<f64> {
+    shown.get("value").and_then(|v| v.as_f64())
+}
+
+/// The group report's whole-program figures, recomputed independently of the group module from
+/// the participant-level tidy metrics (`metrics/participants.csv`): the intention-to-treat
+/// denominator is everyone with a baseline weight; someone whose last weigh-in is 28 days or more
+/// before the period's end has no outcome (baseline carried forward: 0 %; last observation
+/// carried forward: their trend weight at that weigh-in); completers are the rest. Means carry
+/// a t interval (n − 1 degrees of freedom), proportions a Wilson score interval (Wilson 1927,
+/// formula written out here), medians are printed to 0.5 %, means to 0.01 in `group.json`.
+#[test]
+fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
+    use statrs::distribution::{ContinuousCDF, StudentsT};
+    let run = sample_run();
+    let rows = tidy_rows(run);
+    let group: serde_json::Value = serde_json::from_str(&run.read("metrics/group.json")).unwrap();
+    let stats = &group["program"]["stats"];
+    let (mut bocf, mut locf, mut completers) = (Vec::new(), Vec::new(), Vec::new());
+    let (mut plateau, mut verdict) = (0usize, 0usize);
+    for row in &rows {
+        // A verdict on the period's end ("on a plateau at the end of the period") needs a
+        // weigh-in in its last four weeks.
+        if matches!(
+            row["trend.status"].as_str(),
+            "plateau" | "losing" | "regaining" | "stable"
+        ) {
+            let days = num(row, "trend.days_since_last_weigh_in").unwrap();
+            assert!(
+                days < 28.0,
+                "{}: {} with the last weigh-in {days} days before the period's end",
+                row["participant_id"],
+                row["trend.status"]
+            );
+        }
+        match row["trend.status"].as_str() {
+            "plateau" => {
+                plateau += 1;
+                verdict += 1;
+            }
+            "losing" | "regaining" | "stable" => verdict += 1,
+            _ => {}
+        }
+        let Some(b) = num(row, "outcomes.baseline_weight_kg") else {
+            continue;
+        };
+        let last = num(row, "trend.current_weight_kg");
+        let recent = num(row, "trend.days_since_last_weigh_in").is_some_and(|d| d < 28.0);
+        let pct = |w: f64| 100.0 * (w - b) / b;
+        match last.filter(|_| recent) {
+            Some(w) => {
+                bocf.push(pct(w));
+                completers.push(pct(w));
+            }
+            None => bocf.push(0.0),
+        }
+        locf.push(pct(last.unwrap_or(b)));
+    }
+    let started = bocf.len();
+    assert!(started >= 40, "the sample has {started} started");
+    let e = &stats["enrolment"];
+    group_count_holds(&e["started"], started, "started");
+    group_count_holds(&e["with_outcome"], completers.len(), "with an outcome");
+    group_count_holds(
+        &e["without_outcome"],
+        started - completers.len(),
+        "without an outcome",
+    );
+    if let Some(r) = group_value(&e["retention_percent"]) {
+        assert!((r - 100.0 * completers.len() as f64 / started as f64).abs() < 1e-9);
+    }
+
+    // Means with their t intervals, and medians.
+    let mut means_checked = 0;
+    for (line, values) in [
+        ("bocf", &bocf),
+        ("locf", &locf),
+        ("completers", &completers),
+    ] {
+        let shown = &stats["weight_change"][line];
+        group_count_holds(&shown["n"], values.len(), line);
+        let n = values.len() as f64;
+        let mean = values.iter().sum::<f64>() / n;
+        let sd = (values.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+        let t = StudentsT::new(0.0, 1.0, n - 1.0)
+            .unwrap()
+            .inverse_cdf(0.975);
+        let (lo, hi) = (mean - t * sd / n.sqrt(), mean + t * sd / n.sqrt());
+        let close = |printed: f64, truth: f64, what: &str| {
+            assert!(
+                (printed - truth).abs() <= 0.005 + 1e-9,
+                "{line} {what}: printed {printed}, recomputed {truth}"
+            )
+        };
+        let p = &shown["percent"];
+        if let Some(m) = group_value(&p["mean"]) {
+            close(m, mean, "mean");
+            close(group_value(&p["sd"]).unwrap(), sd, "sd");
+            close(
+                p["mean_ci"]["value"]["lo"].as_f64().unwrap(),
+                lo,
+                "lower limit",
+            );
+            close(
+                p["mean_ci"]["value"]["hi"].as_f64().unwrap(),
+                hi,
+                "upper limit",
+            );
+            means_checked += 1;
+        }
+        if let Some(m) = group_value(&p["median"]) {
+            let mut s = values.clone();
+            s.sort_by(f64::total_cmp);
+            let k = s.len();
+            let median = if k % 2 == 1 {
+                s[k / 2]
+            } else {
+                (s[k / 2 - 1] + s[k / 2]) / 2.0
+            };
+            assert_eq!(m, (median / 0.5).round() * 0.5, "{line} median {median}");
+        }
+    }
+    assert!(means_checked >= 1, "no mean shown to check");
+
+    // Milestones: reached on the baseline-carried-forward change, of everyone who started,
+    // with a Wilson interval.
+    let z: f64 = 1.959_963_984_540_054;
+    let wilson = |x: usize, n: usize| {
+        let (x, n) = (x as f64, n as f64);
+        let p = x / n;
+        let centre = (p + z * z / (2.0 * n)) / (1.0 + z * z / n);
+        let half = z / (1.0 + z * z / n) * (p * (1.0 - p) / n + z * z / (4.0 * n * n)).sqrt();
+        (100.0 * (centre - half), 100.0 * (centre + half))
+    };
+    let mut shares_checked = 0;
+    for m in stats["milestones"].as_array().unwrap() {
+        let k = m["loss_at_least_percent"].as_f64().unwrap();
+        let reached = bocf.iter().filter(|&&c| c <= -k + 1e-9).count();
+        group_count_holds(&m["reached"], reached, &format!("reached {k} %"));
+        group_count_holds(&m["denominator"], started, &format!("of, {k} %"));
+        if let Some(pct) = group_value(&m["percent"]) {
+            assert!((pct - 100.0 * reached as f64 / started as f64).abs() < 1e-9);
+            let (lo, hi) = wilson(reached, started);
+            assert!((m["ci"]["value"]["lo"].as_f64().unwrap() - lo).abs() < 1e-6);
+            assert!((m["ci"]["value"]["hi"].as_f64().unwrap() - hi).abs() < 1e-6);
+            shares_checked += 1;
+        }
+    }
+    // Plateau prevalence: of those whose trend gives a verdict on the period's end.
+    let pl = &stats["plateau"];
+    group_count_holds(&pl["in_plateau"], plateau, "on a plateau");
+    group_count_holds(&pl["with_verdict"], verdict, "with a verdict");
+    if let Some(pct) = group_value(&pl["percent"]) {
+        assert!((pct - 100.0 * plateau as f64 / verdict as f64).abs() < 1e-9);
+        let (lo, hi) = wilson(plateau, verdict);
+        assert!((pl["ci"]["value"]["lo"].as_f64().unwrap() - lo).abs() < 1e-6);
+        assert!((pl["ci"]["value"]["hi"].as_f64().unwrap() - hi).abs() < 1e-6);
+        shares_checked += 1;
+    }
+    assert!(shares_checked >= 1, "no share shown to check");
+}
+
 // ---------------------------------------------------------------------------------------------
 // 5. One description: the PDF follows the HTML the template produced
 // ---------------------------------------------------------------------------------------------
