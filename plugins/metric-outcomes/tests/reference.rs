@@ -622,7 +622,7 @@ fn low_bmi_flag_near_the_floor_while_still_losing() {
 
 /// A man of 76 at BMI 21.8 who had lost 20 % and was still losing 0.6 kg a week got "Holding
 /// your new weight … if you would like to stop losing" and no caution: the near-floor test
-/// stopped at BMI 20. From 70 a BMI under 22 counts as low (GLIM 2019, from memory), so the
+/// stopped at BMI 20. From 70 a BMI under 22 counts as low (GLIM 2019, Cederholm et al.), so the
 /// falling trend raises `low_bmi` there; the same record at 45, or the 76-year-old steady, does
 /// not.
 #[test]
