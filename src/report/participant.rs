@@ -278,15 +278,40 @@ fn person_facts(p: &Profile, units: UnitSystem) -> Vec<Kv> {
     facts
 }
 
+/// The weight the summary prints as current (or as at the last weigh-in): the trend's, else
+/// the outcomes module's.
+fn shown_current_kg(trend: Option<&TrendView>, outcomes: Option<&OutcomesView>) -> Option<f64> {
+    trend
+        .and_then(|t| t.current_weight_kg.value)
+        .or(outcomes.and_then(|o| o.current_weight_kg.value))
+}
+
+/// The change since the start in words, for the summary and the headline: the difference of the
+/// starting and current weights as the summary prints them, so the three figures add up (demo,
+/// 150, September: SG-046 read 86.0 kg, 83.2 kg and "−2.9 kg"); the module's own change when
+/// either weight is missing.
+fn change_words(
+    trend: Option<&TrendView>,
+    outcomes: Option<&OutcomesView>,
+    units: UnitSystem,
+) -> Option<String> {
+    let baseline = outcomes.and_then(|o| o.baseline_weight_kg);
+    match (baseline, shown_current_kg(trend, outcomes)) {
+        (Some(b), Some(c)) if b.is_finite() && c.is_finite() => {
+            Some(fmt::weight_change_between(b, c, units))
+        }
+        _ => outcomes
+            .and_then(|o| o.change_kg)
+            .map(|c| fmt::weight_change(c, units)),
+    }
+}
+
 /// Key figures: current and starting weight, change, recent rate, BMI. `to` is the period's
 /// last day.
 fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
     let (trend, outcomes) = (v.trend.as_ref(), v.outcomes.as_ref());
     let mut summary = Vec::new();
-    if let Some(w) = trend
-        .and_then(|t| t.current_weight_kg.value)
-        .or(outcomes.and_then(|o| o.current_weight_kg.value))
-    {
+    if let Some(w) = shown_current_kg(trend, outcomes) {
         // The trend ends at the last weigh-in: months later it is that day's weight, not a
         // current one (someone who stopped recording in July read "Current weight" in a
         // September report).
@@ -303,16 +328,12 @@ fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
         summary.push(Kv::new("Starting weight", &fmt::weight(b, units)));
     }
     if let (Some(c), Some(pc)) = (
-        outcomes.and_then(|o| o.change_kg),
+        change_words(trend, outcomes, units),
         outcomes.and_then(|o| o.change_percent),
     ) {
         summary.push(Kv::new(
             "Change since start",
-            &format!(
-                "{} ({})",
-                fmt::weight_change(c, units),
-                fmt::percent_change(pc)
-            ),
+            &format!("{c} ({})", fmt::percent_change(pc)),
         ));
     }
     // With too few recent weigh-ins the headline says the movement cannot be seen; a rate
@@ -537,10 +558,10 @@ fn headline(
     joined_recently: Option<NaiveDate>,
 ) -> String {
     let status = trend.map_or(Status::InsufficientData, |t| t.status);
-    let change = outcomes.and_then(|o| o.change_kg);
     let rate = trend.and_then(|t| t.slope_kg_per_week.value);
-    let since = change
-        .map(|c| format!(" Since you started: {}.", fmt::weight_change(c, units)))
+    // The same words as the summary's "Change since start".
+    let since = change_words(trend, outcomes, units)
+        .map(|c| format!(" Since you started: {c}."))
         .unwrap_or_default();
     let rate_s = rate
         .map(|r| fmt::rate_per_week(r, units))

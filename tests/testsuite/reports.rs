@@ -901,9 +901,24 @@ fn every_participant_report_shows_the_tidy_figures() {
             Some(fmt::weight(kg, UnitSystem::Metric)),
             "{id}"
         );
+        // The change in kg is the difference of the two weights as printed above it, so the
+        // three figures add up (SG-046 of the 150-person demo read 86.0 kg, 83.2 kg and
+        // "−2.9 kg" for a change of −2.87); the percent is the tidy one.
+        let baseline = num(row, "outcomes.baseline_weight_kg").unwrap();
+        let shown = |w: f64| (w * 10.0).round() / 10.0;
+        let change = shown(kg) - shown(baseline);
+        assert!(
+            (change - num(row, "outcomes.change_kg").unwrap()).abs() <= 0.1 + 1e-9,
+            "{id}: the shown change strays from the tidy one by more than its rounding"
+        );
+        assert_eq!(
+            kv_value(&html, "Starting weight").map(|v| unescape(&v)),
+            Some(fmt::weight(baseline, UnitSystem::Metric)),
+            "{id}"
+        );
         let expected_change = format!(
             "{} ({})",
-            fmt::weight_change(num(row, "outcomes.change_kg").unwrap(), UnitSystem::Metric),
+            fmt::weight_change(change, UnitSystem::Metric),
             fmt::percent_change(num(row, "outcomes.change_percent").unwrap())
         );
         assert_eq!(
