@@ -1404,6 +1404,22 @@ pub fn round_to(v: f64, step: f64) -> f64 {
     if r == 0.0 { 0.0 } else { r }
 }
 
+/// `v` rounded outward to a multiple of `step`: down for a lower limit (`down`), up for an
+/// upper one, so a rounded interval holds the computed one. A value within rounding error of
+/// a multiple is that multiple.
+pub fn round_outward(v: f64, step: f64, down: bool) -> f64 {
+    let x = v / step;
+    let k = if (x - x.round()).abs() < 1e-9 {
+        x.round()
+    } else if down {
+        x.floor()
+    } else {
+        x.ceil()
+    };
+    let r = ((k * step) * 1e6).round() / 1e6;
+    if r == 0.0 { 0.0 } else { r }
+}
+
 fn change_stats(values: &[f64], hidden: bool, confidence: f64, step: f64) -> ChangeStats {
     let mci = stats::mean_ci_t(values, confidence);
     let medci = stats::median_ci(values, confidence);
@@ -1420,10 +1436,12 @@ fn change_stats(values: &[f64], hidden: bool, confidence: f64, step: f64) -> Cha
             hidden,
         ),
         median: Shown::from_option(stats::median(values).map(q), hidden),
+        // The limits outward, the median to the nearest: rounded to the nearest 0.5, an
+        // interval of −4.67 to −3.81 % printed as "−4.5 to −4.0" (demo, 150, September).
         median_ci: Shown::from_option(
             medci.map(|c| Interval {
-                lo: q(c.lo),
-                hi: q(c.hi),
+                lo: round_outward(c.lo, step, true),
+                hi: round_outward(c.hi, step, false),
             }),
             hidden,
         ),

@@ -815,3 +815,48 @@ fn the_clinician_review_figure_counts_people_and_is_audited_as_people() {
         s.with_clinician_review_flag
     );
 }
+
+/// Demo program (150 participants, September): the last-observation-carried-forward median
+/// −4.31 % had the order-statistic interval −4.67 to −3.81 %, and the report printed
+/// "−4.5 % (−4.5 to −4.0)": limits rounded to the nearest 0.5 % narrowed the interval by 0.36
+/// of its 0.86 and left the median on its edge. Interval limits are rounded outward to the
+/// 0.5 % grid (the median itself to the nearest), so the printed interval holds the computed
+/// one.
+#[test]
+fn median_interval_limits_are_rounded_outward() {
+    // 21 people at 100 kg with changes −8.0, −7.6, …, 0.0 %: the median is −4.0 %, and the 95 %
+    // order-statistic interval is the 6th and 16th values, −6.0 and −2.0; all shifted by +0.17,
+    // so that rounding to the nearest half pulls the upper limit (−1.83) inward to −2.0.
+    let rows: Vec<ParticipantSummary> = (0..21)
+        .map(|i| person("A", 100.0, Some(100.0 - 8.0 + 0.4 * i as f64 + 0.17)))
+        .collect();
+    let r = summarize(&rows, &opts(0, &[]));
+    let p = &r.program.stats.as_ref().unwrap().weight_change.bocf.percent;
+    let exact = super::stats::median_ci(
+        &(0..21)
+            .map(|i| -8.0 + 0.4 * i as f64 + 0.17)
+            .collect::<Vec<_>>(),
+        0.95,
+    )
+    .unwrap();
+    assert_eq!((exact.lower_rank, exact.upper_rank), (6, 16));
+    assert!((exact.lo - -5.83).abs() < 1e-9 && (exact.hi - -1.83).abs() < 1e-9);
+    let ci = val(&p.median_ci);
+    assert_eq!((ci.lo, ci.hi), (-6.0, -1.5));
+    assert_eq!(val(&p.median), -4.0);
+    // A limit already on the grid stays where it is.
+    let rows: Vec<ParticipantSummary> = (0..21)
+        .map(|i| person("A", 100.0, Some(100.0 - 8.0 + 0.4 * i as f64)))
+        .collect();
+    let r = summarize(&rows, &opts(0, &[]));
+    let ci = val(&r
+        .program
+        .stats
+        .as_ref()
+        .unwrap()
+        .weight_change
+        .bocf
+        .percent
+        .median_ci);
+    assert_eq!((ci.lo, ci.hi), (-6.0, -2.0));
+}

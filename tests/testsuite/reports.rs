@@ -1098,6 +1098,24 @@ fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
                 (s[k / 2 - 1] + s[k / 2]) / 2.0
             };
             assert_eq!(m, (median / 0.5).round() * 0.5, "{line} median {median}");
+            // Its distribution-free interval: the k-th and (n − k + 1)-th values, k the largest
+            // with P(Binomial(n, ½) ≤ k − 1) ≤ 2.5 %; printed with the limits rounded outward
+            // to the 0.5 % grid.
+            use statrs::distribution::{Binomial, DiscreteCDF};
+            let b = Binomial::new(0.5, k as u64).unwrap();
+            let mut r = 0usize;
+            while r < k.div_ceil(2) && b.cdf(r as u64) <= 0.025 + 1e-12 {
+                r += 1;
+            }
+            let ci = &p["median_ci"]["value"];
+            if r > 0 && ci.is_object() {
+                let (lo, hi) = (s[r - 1], s[k - r]);
+                let (plo, phi) = (ci["lo"].as_f64().unwrap(), ci["hi"].as_f64().unwrap());
+                assert!(
+                    plo <= lo + 1e-9 && lo - plo < 0.5 && phi >= hi - 1e-9 && phi - hi < 0.5,
+                    "{line} median interval {lo}–{hi} printed {plo}–{phi}"
+                );
+            }
         }
     }
     assert!(means_checked >= 1, "no mean shown to check");
