@@ -77,6 +77,14 @@ struct Contexts {
     group: GroupReportContext,
     /// The HTML of [`SNAPSHOT_ID`] rendered from the library model with the built-in templates.
     snapshot_html: String,
+    /// Each participant's row for the group step, with their id, enrolment day and last
+    /// weigh-in day up to the period's end.
+    summary_rows: Vec<(
+        String,
+        chrono::NaiveDate,
+        Option<chrono::NaiveDate>,
+        cohortpress::group::ParticipantSummary,
+    )>,
 }
 
 fn contexts() -> &'static Contexts {
@@ -106,6 +114,7 @@ fn contexts() -> &'static Contexts {
         let mut rows = Vec::new();
         let mut participants_with_errors = 0;
         let mut snapshot_html = String::new();
+        let mut summary_rows = Vec::new();
         for dir in &dirs {
             let loaded = cohortpress::participant::load_participant(&plan.program, dir, plan.as_of);
             let Some(data) = loaded.data else {
@@ -130,9 +139,18 @@ fn contexts() -> &'static Contexts {
                 .expect("renders");
                 snapshot_html = String::from_utf8(files[0].1.clone()).unwrap();
             }
-            rows.push(cohortpress::run::execute::summary_row(
-                &plan, &data, &results,
+            let row = cohortpress::run::execute::summary_row(&plan, &data, &results);
+            summary_rows.push((
+                data.profile.id.clone(),
+                data.profile.enrolled,
+                data.weights
+                    .iter()
+                    .map(|w| w.date)
+                    .filter(|d| *d <= plan.period.to)
+                    .max(),
+                row.clone(),
             ));
+            rows.push(row);
             participants.insert(data.profile.id.clone(), report.ctx);
         }
         let opts = cohortpress::group::GroupOptions {
@@ -147,6 +165,7 @@ fn contexts() -> &'static Contexts {
             participants,
             group,
             snapshot_html,
+            summary_rows,
         }
     })
 }
@@ -957,6 +976,29 @@ fn group_itt_n_is_the_number_of_started_participants() {
         "{}",
         run.outcome.stderr
     );
+}
+
+/// The group report's weekly means are means of weights: a participant's week counts only up
+/// to their last weigh-in, never a day the trend model would extrapolate past it (sample,
+/// September: SG-012, SG-021, SG-031 and SG-046 stopped 7–11 days before the period's end; checked,
+/// already true: the trend series ends at the last weigh-in).
+#[test]
+fn the_group_weekly_means_use_no_week_after_a_participants_last_weigh_in() {
+    let rows = &contexts().summary_rows;
+    let mut checked = 0;
+    for (id, enrolled, last, row) in rows {
+        for &(week, _) in &row.weekly_change_percent {
+            let day = *enrolled + chrono::Duration::days(7 * week as i64 + 6);
+            let last = last.unwrap_or_else(|| panic!("{id}: weekly values without a weigh-in"));
+            assert!(
+                day <= last,
+                "{id}: week {} ends {day}, after the last weigh-in on {last}",
+                week + 1
+            );
+            checked += 1;
+        }
+    }
+    assert!(checked > 500, "{checked} week values checked");
 }
 
 /// A count of the group report as printed: exact, or the range it is shown as.
