@@ -134,6 +134,8 @@ pub struct AuditNote {
 pub struct Methods {
     /// Who is in the intention-to-treat denominator.
     pub itt_denominator: String,
+    /// What the baseline weight and the weight at the time point are.
+    pub weights: String,
     /// The primary missing-data rule.
     pub bocf: String,
     /// The sensitivity rule.
@@ -159,11 +161,18 @@ impl Methods {
             itt_denominator: "Intention to treat: everyone enrolled who has a baseline weight \
                               (started)."
                 .into(),
+            weights: "Baseline: each participant's first weigh-in on or after enrolment (the \
+                      mean of that day's weigh-ins, moved onto the later level when the \
+                      weigh-ins have a step such as a new scale). Weight at the time point (the period's \
+                      end): the smoothed trend weight at the last weigh-in, counted only when \
+                      that weigh-in lies in the last 4 weeks of the period; otherwise the \
+                      weight at the time point is missing."
+                .into(),
             bocf: "Primary: a missing weight at the time point is replaced by the baseline \
                    weight (no change counted), which assumes no benefit."
                 .into(),
-            locf: "Sensitivity: a missing weight at the time point is replaced by the last \
-                   observed weight (the baseline if there is none)."
+            locf: "Sensitivity: a missing weight at the time point is replaced by the trend \
+                   weight at the last weigh-in (the baseline if there is none)."
                 .into(),
             completers: "Completers: only participants with a weight at the time point; this \
                          tends to overstate success."
@@ -171,7 +180,8 @@ impl Methods {
             mean_interval: format!("{c:.0} % interval for a mean: Student t (mean ± t × SE)."),
             median_interval: format!(
                 "{c:.0} % interval for a median: distribution-free, from order statistics and \
-                 the binomial distribution (Conover, Practical Nonparametric Statistics)."
+                 the binomial distribution (Conover, Practical Nonparametric Statistics); its \
+                 limits are rounded outward to 0.5, the median to the nearest 0.5."
             ),
             proportion_interval: format!(
                 "{c:.0} % interval for a share: Wilson score interval (Wilson 1927)."

@@ -860,3 +860,28 @@ fn median_interval_limits_are_rounded_outward() {
         .median_ci);
     assert_eq!((ci.lo, ci.hi), (-6.0, -2.0));
 }
+
+/// The group report said how a missing weight at the time point is replaced, but not what the
+/// weights are: the baseline (a raw first weigh-in) and the weight at the time point (the
+/// smoothed trend weight at the last weigh-in, counted only when that weigh-in lies in the
+/// period's last 4 weeks) were defined in the README alone. A statistician reading the sponsor's
+/// report could not tell what "the time point" was, nor that the medians' interval limits are
+/// rounded outward.
+#[test]
+fn the_methods_define_the_weights_and_the_time_point() {
+    let r = summarize(&[person("A", 100.0, Some(95.0))], &opts(0, &[]));
+    let w = &r.methods.weights;
+    for needle in [
+        "first weigh-in on or after enrolment",
+        "smoothed trend weight at the last weigh-in",
+        "last 4 weeks of the period",
+    ] {
+        assert!(w.contains(needle), "{needle:?} not in {w:?}");
+    }
+    assert!(r.methods.locf.contains("trend weight at the last weigh-in"));
+    assert!(
+        r.methods.median_interval.contains("rounded outward"),
+        "{}",
+        r.methods.median_interval
+    );
+}

@@ -269,6 +269,7 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
     let m = &g.methods;
     let methods = vec![
         Kv::new("Who counts (intention-to-treat)", &m.itt_denominator),
+        Kv::new("Weights", &m.weights),
         Kv::new("Missing outcome, primary (BOCF)", &m.bocf),
         Kv::new("Sensitivity (LOCF)", &m.locf),
         Kv::new("Completers", &m.completers),
