@@ -142,6 +142,38 @@ pub fn bmi_one_decimal(bmi: f64) -> f64 {
     }
 }
 
+/// A glucose or HbA1c value as the reports print it, in `unit` (`%`, `mmol/mol`, `mmol/L` or
+/// `mg/dL`) to `decimals` places, rounded unless rounding would carry it across the ADA cut-off
+/// that sets its category; it is then cut towards its own side instead. 47 mmol/mol is 6.45 %
+/// NGSP, in the prediabetes range, and rounds to "6.5 %", the diabetes cut-off: a report read
+/// "The most recent HbA1c (6.5 %, …) is in the prediabetes range" (demo, 150, SG-134 with its
+/// September result). It prints 6.4 %; 6.46 % prints 6.4, 6.5 % stays 6.5. Other tests and
+/// units are rounded as they are.
+pub fn lab_shown(test: LabTest, value: f64, unit: &str, decimals: i32) -> f64 {
+    let class = |v: f64| -> Option<LabCategory> {
+        match (test, unit) {
+            (LabTest::Hba1c, "%") => Some(hba1c_class(v)),
+            (LabTest::Hba1c, "mmol/mol") => Some(hba1c_class(
+                cohortpress_metric_api::units::hba1c_mmolmol_to_percent(v),
+            )),
+            (LabTest::FastingGlucose, "mmol/L") => Some(fasting_glucose_class(v)),
+            (LabTest::FastingGlucose, "mg/dL") => {
+                Some(fasting_glucose_class(v / GLUCOSE_MGDL_PER_MMOLL))
+            }
+            _ => None,
+        }
+    };
+    let f = 10f64.powi(decimals);
+    let rounded = (value * f).round() / f;
+    if class(rounded) == class(value) {
+        rounded
+    } else if rounded > value {
+        (value * f).floor() / f
+    } else {
+        (value * f).ceil() / f
+    }
+}
+
 /// Weight outcomes, milestones, lab categories and clinician-review flags.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct OutcomesModule;
@@ -1181,11 +1213,11 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Sex) {
             _ => continue,
         };
         let shown = match l.test {
-            LabTest::Hba1c => format!("{:.1} %", l.value),
+            LabTest::Hba1c => format!("{:.1} %", lab_shown(l.test, l.value, "%", 1)),
             _ => format!(
                 "{:.1} mmol/L ({:.0} mg/dL)",
-                l.value,
-                l.value * GLUCOSE_MGDL_PER_MMOLL
+                lab_shown(l.test, l.value, "mmol/L", 1),
+                lab_shown(l.test, l.value * GLUCOSE_MGDL_PER_MMOLL, "mg/dL", 0)
             ),
         };
         output.push_flag(
