@@ -718,6 +718,14 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
             "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".to_string(),
         );
     }
+    // From 70, loss is for obese older people with a health problem the weight causes (ESPEN
+    // guideline on clinical nutrition and hydration in geriatrics, Volkert et al. 2019, Clin
+    // Nutr 38:10–47), which this report cannot judge: a clinician first.
+    if state.older && matches!(phase, Phase::RestartLoss | Phase::KeepGoing) {
+        cautions.push(
+            "From the age of 70, losing weight is advised only where a clinician finds that it helps a health problem the weight causes, because it can also cost muscle that is hard to regain: please talk to your clinician before acting on the amounts here.".to_string(),
+        );
+    }
     let at = g
         .paragraphs
         .iter()
@@ -1769,6 +1777,30 @@ mod tests {
             .paragraphs
             .join(" ");
         assert!(!all.contains("please do not eat less"), "{all}");
+    }
+
+    /// Demo program (150), SG-058 with its age set to 74 (BMI 35, plateau, September): the report
+    /// offered "Eat about 500 kcal a day less than now" with nothing about age. ESPEN's geriatrics guideline
+    /// (Volkert et al. 2019, Clin Nutr 38:10–47) considers weight-reducing diets for obese
+    /// older persons only with weight-related health problems, which this report cannot judge:
+    /// from 70 a line before the amounts says so and sends the reader to a clinician first.
+    #[test]
+    fn from_70_a_loss_amount_comes_after_a_line_on_age() {
+        let t = Thresholds::default();
+        let mut s = st(Plateau);
+        s.bmi = Some(35.0);
+        s.older = true;
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+        let g = compose(Phase::RestartLoss, &s, &t, &facts());
+        assert!(!g.options.is_empty());
+        let line = "From the age of 70, losing weight is advised only where a clinician finds that it helps a health problem the weight causes, because it can also cost muscle that is hard to regain: please talk to your clinician before acting on the amounts here.";
+        assert_eq!(g.paragraphs.last().map(String::as_str), Some(line));
+        let g = compose(Phase::KeepGoing, &s, &t, &facts());
+        assert!(g.paragraphs.iter().any(|p| p == line), "{:?}", g.paragraphs);
+        // Under 70 the line is not there.
+        s.older = false;
+        let g = compose(Phase::RestartLoss, &s, &t, &facts());
+        assert!(g.paragraphs.iter().all(|p| !p.contains("age of 70")));
     }
 
     #[test]
