@@ -134,6 +134,8 @@ pub struct AuditNote {
 pub struct Methods {
     /// Who is in the intention-to-treat denominator.
     pub itt_denominator: String,
+    /// What the baseline weight and the weight at the time point are.
+    pub weights: String,
     /// The primary missing-data rule.
     pub bocf: String,
     /// The sensitivity rule.
@@ -159,11 +161,18 @@ impl Methods {
             itt_denominator: "Intention to treat: everyone enrolled who has a baseline weight \
                               (started)."
                 .into(),
+            weights: "Baseline: each participant's first weigh-in on or after enrolment (the \
+                      mean of that day's weigh-ins, moved onto the later level when the \
+                      weigh-ins have a step such as a new scale). Weight at the time point (the period's \
+                      end): the smoothed trend weight at the last weigh-in, counted only when \
+                      that weigh-in lies in the last 4 weeks of the period; otherwise the \
+                      weight at the time point is missing."
+                .into(),
             bocf: "Primary: a missing weight at the time point is replaced by the baseline \
                    weight (no change counted), which assumes no benefit."
                 .into(),
-            locf: "Sensitivity: a missing weight at the time point is replaced by the last \
-                   observed weight (the baseline if there is none)."
+            locf: "Sensitivity: a missing weight at the time point is replaced by the trend \
+                   weight at the last weigh-in (the baseline if there is none)."
                 .into(),
             completers: "Completers: only participants with a weight at the time point; this \
                          tends to overstate success."
@@ -171,7 +180,8 @@ impl Methods {
             mean_interval: format!("{c:.0} % interval for a mean: Student t (mean ± t × SE)."),
             median_interval: format!(
                 "{c:.0} % interval for a median: distribution-free, from order statistics and \
-                 the binomial distribution (Conover, Practical Nonparametric Statistics)."
+                 the binomial distribution (Conover, Practical Nonparametric Statistics); its \
+                 limits are rounded outward to 0.5, the median to the nearest 0.5."
             ),
             proportion_interval: format!(
                 "{c:.0} % interval for a share: Wilson score interval (Wilson 1927)."
@@ -1404,6 +1414,22 @@ pub fn round_to(v: f64, step: f64) -> f64 {
     if r == 0.0 { 0.0 } else { r }
 }
 
+/// `v` rounded outward to a multiple of `step`: down for a lower limit (`down`), up for an
+/// upper one, so a rounded interval holds the computed one. A value within rounding error of
+/// a multiple is that multiple.
+pub fn round_outward(v: f64, step: f64, down: bool) -> f64 {
+    let x = v / step;
+    let k = if (x - x.round()).abs() < 1e-9 {
+        x.round()
+    } else if down {
+        x.floor()
+    } else {
+        x.ceil()
+    };
+    let r = ((k * step) * 1e6).round() / 1e6;
+    if r == 0.0 { 0.0 } else { r }
+}
+
 fn change_stats(values: &[f64], hidden: bool, confidence: f64, step: f64) -> ChangeStats {
     let mci = stats::mean_ci_t(values, confidence);
     let medci = stats::median_ci(values, confidence);
@@ -1420,10 +1446,12 @@ fn change_stats(values: &[f64], hidden: bool, confidence: f64, step: f64) -> Cha
             hidden,
         ),
         median: Shown::from_option(stats::median(values).map(q), hidden),
+        // The limits outward, the median to the nearest: rounded to the nearest 0.5, an
+        // interval of −4.67 to −3.81 % printed as "−4.5 to −4.0" (demo, 150, September).
         median_ci: Shown::from_option(
             medci.map(|c| Interval {
-                lo: q(c.lo),
-                hi: q(c.hi),
+                lo: round_outward(c.lo, step, true),
+                hi: round_outward(c.hi, step, false),
             }),
             hidden,
         ),

@@ -815,3 +815,73 @@ fn the_clinician_review_figure_counts_people_and_is_audited_as_people() {
         s.with_clinician_review_flag
     );
 }
+
+/// Demo program (150 participants, September): the last-observation-carried-forward median
+/// −4.31 % had the order-statistic interval −4.67 to −3.81 %, and the report printed
+/// "−4.5 % (−4.5 to −4.0)": limits rounded to the nearest 0.5 % narrowed the interval by 0.36
+/// of its 0.86 and left the median on its edge. Interval limits are rounded outward to the
+/// 0.5 % grid (the median itself to the nearest), so the printed interval holds the computed
+/// one.
+#[test]
+fn median_interval_limits_are_rounded_outward() {
+    // 21 people at 100 kg with changes −8.0, −7.6, …, 0.0 %: the median is −4.0 %, and the 95 %
+    // order-statistic interval is the 6th and 16th values, −6.0 and −2.0; all shifted by +0.17,
+    // so that rounding to the nearest half pulls the upper limit (−1.83) inward to −2.0.
+    let rows: Vec<ParticipantSummary> = (0..21)
+        .map(|i| person("A", 100.0, Some(100.0 - 8.0 + 0.4 * i as f64 + 0.17)))
+        .collect();
+    let r = summarize(&rows, &opts(0, &[]));
+    let p = &r.program.stats.as_ref().unwrap().weight_change.bocf.percent;
+    let exact = super::stats::median_ci(
+        &(0..21)
+            .map(|i| -8.0 + 0.4 * i as f64 + 0.17)
+            .collect::<Vec<_>>(),
+        0.95,
+    )
+    .unwrap();
+    assert_eq!((exact.lower_rank, exact.upper_rank), (6, 16));
+    assert!((exact.lo - -5.83).abs() < 1e-9 && (exact.hi - -1.83).abs() < 1e-9);
+    let ci = val(&p.median_ci);
+    assert_eq!((ci.lo, ci.hi), (-6.0, -1.5));
+    assert_eq!(val(&p.median), -4.0);
+    // A limit already on the grid stays where it is.
+    let rows: Vec<ParticipantSummary> = (0..21)
+        .map(|i| person("A", 100.0, Some(100.0 - 8.0 + 0.4 * i as f64)))
+        .collect();
+    let r = summarize(&rows, &opts(0, &[]));
+    let ci = val(&r
+        .program
+        .stats
+        .as_ref()
+        .unwrap()
+        .weight_change
+        .bocf
+        .percent
+        .median_ci);
+    assert_eq!((ci.lo, ci.hi), (-6.0, -2.0));
+}
+
+/// The group report said how a missing weight at the time point is replaced, but not what the
+/// weights are: the baseline (a raw first weigh-in) and the weight at the time point (the
+/// smoothed trend weight at the last weigh-in, counted only when that weigh-in lies in the
+/// period's last 4 weeks) were defined in the README alone. A statistician reading the sponsor's
+/// report could not tell what "the time point" was, nor that the medians' interval limits are
+/// rounded outward.
+#[test]
+fn the_methods_define_the_weights_and_the_time_point() {
+    let r = summarize(&[person("A", 100.0, Some(95.0))], &opts(0, &[]));
+    let w = &r.methods.weights;
+    for needle in [
+        "first weigh-in on or after enrolment",
+        "smoothed trend weight at the last weigh-in",
+        "last 4 weeks of the period",
+    ] {
+        assert!(w.contains(needle), "{needle:?} not in {w:?}");
+    }
+    assert!(r.methods.locf.contains("trend weight at the last weigh-in"));
+    assert!(
+        r.methods.median_interval.contains("rounded outward"),
+        "{}",
+        r.methods.median_interval
+    );
+}

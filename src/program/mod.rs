@@ -65,7 +65,7 @@ pub struct GuidanceDef {
     /// BMI at or above which loss may still be the goal (default 25, WHO).
     pub loss_bmi_at_least: Option<f64>,
     /// The same for people aged 70 or over (default 30: ESPEN 2019 geriatrics guideline,
-    /// from memory).
+    /// Volkert et al., Clin Nutr 38:10–47: weight-reducing diets only for obese older persons).
     pub loss_bmi_at_least_70_plus: Option<f64>,
     /// BMI below which any further loss is for a clinician (default 18.5, WHO).
     pub underweight_bmi_below: Option<f64>,

@@ -27,6 +27,16 @@ pub fn weight_change(kg: f64, units: UnitSystem) -> String {
     format!("{} {u}", signed(v, 1))
 }
 
+/// The change from `from_kg` to `to_kg` as the difference of the two weights as [`weight`]
+/// prints them, so the three figures add up on the page: 86.05 kg → 83.18 kg prints 86.0 kg,
+/// 83.2 kg and `−2.8 kg`, not the unrounded change's `−2.9 kg` (the percent beside it stays the
+/// unrounded one).
+pub fn weight_change_between(from_kg: f64, to_kg: f64, units: UnitSystem) -> String {
+    let shown = |kg: f64| (weight_value(kg, units) * 10.0).round() / 10.0;
+    let (v, u) = (shown(to_kg) - shown(from_kg), weight_unit(units));
+    format!("{} {u}", signed(v, 1))
+}
+
 /// A rate per week with its sign: `−0.4 kg/week`.
 pub fn rate_per_week(kg_per_week: f64, units: UnitSystem) -> String {
     let (v, u) = match units {
@@ -234,6 +244,29 @@ mod tests {
         assert_eq!(weight(100.0, UnitSystem::UsCustomary), "220.5 lb");
         assert_eq!(weight_change(-3.21, UnitSystem::Metric), "\u{2212}3.2 kg");
         assert_eq!(weight_change(0.01, UnitSystem::Metric), "0.0 kg");
+        // The difference of the printed weights, in either unit.
+        assert_eq!(
+            weight_change_between(86.046_5, 83.175_4, UnitSystem::Metric),
+            "\u{2212}2.8 kg"
+        );
+        assert_eq!(
+            weight_change(83.175_4 - 86.046_5, UnitSystem::Metric),
+            "\u{2212}2.9 kg"
+        );
+        // 297.24 lb → 288.86 lb prints 297.2 lb, 288.9 lb and "−8.3 lb" (unrounded −8.38).
+        let kg = |lb: f64| lb * cohortpress_metric_api::units::KG_PER_LB;
+        assert_eq!(
+            weight_change_between(kg(297.24), kg(288.86), UnitSystem::UsCustomary),
+            "\u{2212}8.3 lb"
+        );
+        assert_eq!(
+            weight_change(kg(288.86) - kg(297.24), UnitSystem::UsCustomary),
+            "\u{2212}8.4 lb"
+        );
+        assert_eq!(
+            weight_change_between(80.04, 80.0, UnitSystem::Metric),
+            "0.0 kg"
+        );
         assert_eq!(percent_change(1.25), "+1.2 %");
         assert_eq!(kcal_per_day(1850.4), "1,850 kcal/day");
         assert_eq!(int(-1020.2), "\u{2212}1,020");

@@ -100,9 +100,18 @@ fn count(s: &Shown<u64>) -> String {
 fn num(s: &Shown<f64>, decimals: usize, suffix: &str) -> String {
     match s {
         Shown::Value(v) => format!("{}{suffix}", fmt::fixed(*v, decimals)),
-        // A share known only as a range: widened outward to whole numbers.
+        // A share known only as a range: widened outward to whole numbers. A bound that is a
+        // whole number (up to rounding error) stays as it is: 123–147 of 150 is 82–98 %, not
+        // "81–99 %" (the tolerance once widened exact bounds by a whole point).
         Shown::Range { lo, hi } => {
-            let (lo, hi) = ((lo - 1e-9).floor(), (hi + 1e-9).ceil());
+            let whole = |v: f64, outward: fn(f64) -> f64| {
+                if (v - v.round()).abs() < 1e-9 {
+                    v.round()
+                } else {
+                    outward(v)
+                }
+            };
+            let (lo, hi) = (whole(*lo, f64::floor), whole(*hi, f64::ceil));
             if hi >= 100.0 && lo > 0.0 {
                 format!("at least {}{suffix}", fmt::fixed(lo, 0))
             } else if lo <= 0.0 && hi < 100.0 {
@@ -260,6 +269,7 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
     let m = &g.methods;
     let methods = vec![
         Kv::new("Who counts (intention-to-treat)", &m.itt_denominator),
+        Kv::new("Weights", &m.weights),
         Kv::new("Missing outcome, primary (BOCF)", &m.bocf),
         Kv::new("Sensitivity (LOCF)", &m.locf),
         Kv::new("Completers", &m.completers),
@@ -604,5 +614,34 @@ mod release_period_tests {
             "1 Sep 2026 – 15 Sep 2026"
         );
         assert_eq!(super::release_period_words("spring"), "spring");
+    }
+}
+
+#[cfg(test)]
+mod range_share_tests {
+    use super::num;
+    use crate::group::shown::Shown;
+
+    /// Demo program (150 participants, September): retention known only as 123–147 of 150
+    /// people is 82–98 %, and the report printed "123–147 (81–99 %)"; the 5 % milestone's
+    /// 32–57 of 150 (21.3–38 %) read "21–39 %". A share whose bound is a whole number keeps it;
+    /// only a fractional bound is widened outward.
+    #[test]
+    fn a_share_known_as_a_range_keeps_its_whole_number_bounds() {
+        let range = |lo, hi| Shown::Range { lo, hi };
+        assert_eq!(num(&range(82.0, 98.0), 0, " %"), "82–98 %");
+        assert_eq!(
+            num(&range(100.0 * 32.0 / 150.0, 100.0 * 57.0 / 150.0), 0, " %"),
+            "21–38 %"
+        );
+        // A bound a rounding error away from a whole number is that number.
+        assert_eq!(
+            num(&range(81.999_999_999_99, 98.000_000_000_01), 0, " %"),
+            "82–98 %"
+        );
+        // Fractional bounds are still widened outward, never inward.
+        assert_eq!(num(&range(79.4, 98.6), 0, " %"), "79–99 %");
+        assert_eq!(num(&range(79.4, 100.0), 0, " %"), "at least 79 %");
+        assert_eq!(num(&range(0.0, 6.67), 0, " %"), "at most 7 %");
     }
 }

@@ -72,22 +72,27 @@ pub struct Thresholds {
     /// BMI at or above which loss may still be the goal. Default 25: the WHO cut-off between
     /// normal weight and overweight (WHO 2000, Technical Report Series 894).
     pub loss_bmi_at_least: f64,
-    /// The same for people aged 70 or over. Default 30: in older adults who are overweight
-    /// but not obese, weight-reducing diets are to be avoided, since they cost muscle and bone
-    /// that are hard to regain and a BMI of 25–30 carries no excess risk at that age (ESPEN
-    /// guideline on clinical nutrition and hydration in geriatrics, Volkert et al. 2019, Clin
-    /// Nutr 38:10–47 — from memory). The higher of this and `loss_bmi_at_least` applies.
+    /// The same for people aged 70 or over. Default 30: weight-reducing diets are to be
+    /// considered only in older persons who are obese, and then only with weight-related health
+    /// problems (ESPEN guideline on clinical nutrition and hydration in geriatrics, Volkert et
+    /// al. 2019, Clin Nutr 38:10–47; the recommendation checked against the guideline's
+    /// published summary). Why (loss costs muscle and bone that are hard to regain; a BMI of
+    /// 25–30 carries no excess risk at that age): from memory. The higher of this and
+    /// `loss_bmi_at_least` applies.
     pub loss_bmi_at_least_70_plus: f64,
     /// BMI below which further loss is for a clinician: the `outcomes` module's
     /// `underweight_bmi_below`, which raises its `low_bmi` flag below it (default 18.5: the WHO
     /// cut-off for underweight, WHO 2000, Technical Report Series 894); `guidance.` may repeat it.
     pub underweight_bmi_below: f64,
     /// BMI below which a weight that is still falling is for a clinician: the `outcomes`
-    /// module's `low_bmi_losing_below` (default 20; MUST, BAPEN 2003 — from memory), which
+    /// module's `low_bmi_losing_below` (default 20: MUST scores a BMI of 18.5–20 as a
+    /// malnutrition risk, BAPEN 2003, checked against the tool's published score sheet), which
     /// raises its `low_bmi` flag; the cautions name it.
     pub low_bmi_losing_below: f64,
     /// The same from age 70: the `outcomes` module's `low_bmi_losing_below_70_plus` (default
-    /// 22; GLIM, Cederholm et al. 2019 — from memory); the cautions name it.
+    /// 22: GLIM's low-BMI criterion, under 20 below age 70 and under 22 from 70, Cederholm et
+    /// al. 2019, Clin Nutr 38:1–9, checked against published summaries of the criteria); the
+    /// cautions name it.
     pub low_bmi_losing_below_70_plus: f64,
     /// Lowest intake an option may lead to, women, kcal/d: the `energy` module's
     /// `intake_floor_female` (default 1,200; the NIH/NHLBI 1998 Clinical Guidelines give
@@ -711,6 +716,14 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
     if f.glucose_lowering {
         cautions.push(
             "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".to_string(),
+        );
+    }
+    // From 70, loss is for obese older people with a health problem the weight causes (ESPEN
+    // guideline on clinical nutrition and hydration in geriatrics, Volkert et al. 2019, Clin
+    // Nutr 38:10–47), which this report cannot judge: a clinician first.
+    if state.older && matches!(phase, Phase::RestartLoss | Phase::KeepGoing) {
+        cautions.push(
+            "From the age of 70, losing weight is advised only where a clinician finds that it helps a health problem the weight causes, because it can also cost muscle that is hard to regain: please talk to your clinician before acting on the amounts here.".to_string(),
         );
     }
     let at = g
@@ -1766,11 +1779,36 @@ mod tests {
         assert!(!all.contains("please do not eat less"), "{all}");
     }
 
+    /// Demo program (150), SG-058 with its age set to 74 (BMI 35, plateau, September): the report
+    /// offered "Eat about 500 kcal a day less than now" with nothing about age. ESPEN's geriatrics guideline
+    /// (Volkert et al. 2019, Clin Nutr 38:10–47) considers weight-reducing diets for obese
+    /// older persons only with weight-related health problems, which this report cannot judge:
+    /// from 70 a line before the amounts says so and sends the reader to a clinician first.
+    #[test]
+    fn from_70_a_loss_amount_comes_after_a_line_on_age() {
+        let t = Thresholds::default();
+        let mut s = st(Plateau);
+        s.bmi = Some(35.0);
+        s.older = true;
+        assert_eq!(decide(&s, &t), Phase::RestartLoss);
+        let g = compose(Phase::RestartLoss, &s, &t, &facts());
+        assert!(!g.options.is_empty());
+        let line = "From the age of 70, losing weight is advised only where a clinician finds that it helps a health problem the weight causes, because it can also cost muscle that is hard to regain: please talk to your clinician before acting on the amounts here.";
+        assert_eq!(g.paragraphs.last().map(String::as_str), Some(line));
+        let g = compose(Phase::KeepGoing, &s, &t, &facts());
+        assert!(g.paragraphs.iter().any(|p| p == line), "{:?}", g.paragraphs);
+        // Under 70 the line is not there.
+        s.older = false;
+        let g = compose(Phase::RestartLoss, &s, &t, &facts());
+        assert!(g.paragraphs.iter().all(|p| !p.contains("age of 70")));
+    }
+
     #[test]
     fn from_70_a_bmi_under_30_is_held_not_reduced() {
         // A woman of 73 at BMI 27 on a plateau, 2 % down, target −5 %: the report offered ways
         // to restart a loss of 0.5 kg a week. In older adults who are overweight but not obese,
-        // weight-reducing diets are to be avoided (ESPEN 2019 geriatrics guideline, from memory).
+        // weight-reducing diets are to be avoided (ESPEN 2019 geriatrics guideline, Volkert et al.,
+        // Clin Nutr 38:10–47: only in obese older persons with weight-related health problems).
         let t = Thresholds::default();
         let mut s = st(Plateau);
         s.bmi = Some(27.0);

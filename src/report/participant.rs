@@ -13,7 +13,7 @@ use crate::render::chart::{
 use chrono::NaiveDate;
 use cohortpress_metric_adherence::view::AdherenceView as AdherenceResults;
 use cohortpress_metric_api::view::{Code, Interval};
-use cohortpress_metric_api::{FlagSeverity, ParticipantData, Profile, UnitSystem};
+use cohortpress_metric_api::{FlagSeverity, LabTest, ParticipantData, Profile, UnitSystem};
 use cohortpress_metric_energy::view::{EnergyView as EnergyResults, PlateauCause, PlateauRow};
 use cohortpress_metric_outcomes::view::{BmiCategory, OutcomesView};
 use cohortpress_metric_trend::view::{PeriodKind, Status, TrendView};
@@ -278,15 +278,40 @@ fn person_facts(p: &Profile, units: UnitSystem) -> Vec<Kv> {
     facts
 }
 
+/// The weight the summary prints as current (or as at the last weigh-in): the trend's, else
+/// the outcomes module's.
+fn shown_current_kg(trend: Option<&TrendView>, outcomes: Option<&OutcomesView>) -> Option<f64> {
+    trend
+        .and_then(|t| t.current_weight_kg.value)
+        .or(outcomes.and_then(|o| o.current_weight_kg.value))
+}
+
+/// The change since the start in words, for the summary and the headline: the difference of the
+/// starting and current weights as the summary prints them, so the three figures add up (demo,
+/// 150, September: SG-046 read 86.0 kg, 83.2 kg and "−2.9 kg"); the module's own change when
+/// either weight is missing.
+fn change_words(
+    trend: Option<&TrendView>,
+    outcomes: Option<&OutcomesView>,
+    units: UnitSystem,
+) -> Option<String> {
+    let baseline = outcomes.and_then(|o| o.baseline_weight_kg);
+    match (baseline, shown_current_kg(trend, outcomes)) {
+        (Some(b), Some(c)) if b.is_finite() && c.is_finite() => {
+            Some(fmt::weight_change_between(b, c, units))
+        }
+        _ => outcomes
+            .and_then(|o| o.change_kg)
+            .map(|c| fmt::weight_change(c, units)),
+    }
+}
+
 /// Key figures: current and starting weight, change, recent rate, BMI. `to` is the period's
 /// last day.
 fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
     let (trend, outcomes) = (v.trend.as_ref(), v.outcomes.as_ref());
     let mut summary = Vec::new();
-    if let Some(w) = trend
-        .and_then(|t| t.current_weight_kg.value)
-        .or(outcomes.and_then(|o| o.current_weight_kg.value))
-    {
+    if let Some(w) = shown_current_kg(trend, outcomes) {
         // The trend ends at the last weigh-in: months later it is that day's weight, not a
         // current one (someone who stopped recording in July read "Current weight" in a
         // September report).
@@ -303,16 +328,12 @@ fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
         summary.push(Kv::new("Starting weight", &fmt::weight(b, units)));
     }
     if let (Some(c), Some(pc)) = (
-        outcomes.and_then(|o| o.change_kg),
+        change_words(trend, outcomes, units),
         outcomes.and_then(|o| o.change_percent),
     ) {
         summary.push(Kv::new(
             "Change since start",
-            &format!(
-                "{} ({})",
-                fmt::weight_change(c, units),
-                fmt::percent_change(pc)
-            ),
+            &format!("{c} ({})", fmt::percent_change(pc)),
         ));
     }
     // With too few recent weigh-ins the headline says the movement cannot be seen; a rate
@@ -418,9 +439,9 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
             .labs
             .iter()
             .map(|l| {
-                let value = format!("{} {}", lab_number(l.value, &l.unit), l.unit);
+                let value = format!("{} {}", lab_number(l.test, l.value, &l.unit), l.unit);
                 let alt = match (l.value_alt, l.unit_alt.as_deref()) {
-                    (Some(v), Some(u)) => format!("{} {u}", lab_number(v, u)),
+                    (Some(v), Some(u)) => format!("{} {u}", lab_number(l.test, v, u)),
                     _ => String::new(),
                 };
                 vec![
@@ -437,13 +458,18 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
 
 /// A lab value with the decimals its unit is usually written with, so a column never mixes
 /// `5 %` and `5.1 %`: HbA1c in % and glucose in mmol/L to one decimal, mg/dL, mmol/mol and
-/// mmHg whole, lengths to one decimal (common practice in laboratory reports).
-fn lab_number(v: f64, unit: &str) -> String {
+/// mmHg whole, lengths to one decimal (common practice in laboratory reports). A glucose or
+/// HbA1c value is never rounded across the cut-off of the range printed beside it
+/// ([`cohortpress_metric_outcomes::lab_shown`]: 6.45 % prints 6.4 beside "prediabetes range").
+fn lab_number(test: LabTest, v: f64, unit: &str) -> String {
     let decimals = match unit {
         "mg/dL" | "mmol/mol" | "mmHg" => 0,
         _ => 1,
     };
-    fmt::fixed(v, decimals)
+    fmt::fixed(
+        cohortpress_metric_outcomes::lab_shown(test, v, unit, decimals),
+        decimals as usize,
+    )
 }
 
 /// Flags of every module: clinical first, then notices, then information.
@@ -537,10 +563,10 @@ fn headline(
     joined_recently: Option<NaiveDate>,
 ) -> String {
     let status = trend.map_or(Status::InsufficientData, |t| t.status);
-    let change = outcomes.and_then(|o| o.change_kg);
     let rate = trend.and_then(|t| t.slope_kg_per_week.value);
-    let since = change
-        .map(|c| format!(" Since you started: {}.", fmt::weight_change(c, units)))
+    // The same words as the summary's "Change since start".
+    let since = change_words(trend, outcomes, units)
+        .map(|c| format!(" Since you started: {c}."))
         .unwrap_or_default();
     let rate_s = rate
         .map(|r| fmt::rate_per_week(r, units))
@@ -1298,12 +1324,37 @@ mod activity_unread_tests {
     /// The lab table printed `5 %` beside `5.1 %` and `93.7 mg/dL` beside `31.1 mmol/mol`.
     #[test]
     fn lab_values_keep_their_units_usual_decimals() {
-        assert_eq!(lab_number(5.0, "%"), "5.0");
-        assert_eq!(lab_number(5.14, "%"), "5.1");
-        assert_eq!(lab_number(93.7, "mg/dL"), "94");
-        assert_eq!(lab_number(31.1, "mmol/mol"), "31");
-        assert_eq!(lab_number(5.2, "mmol/L"), "5.2");
-        assert_eq!(lab_number(128.0, "mmHg"), "128");
+        use LabTest::{DiastolicBp, FastingGlucose as G, Hba1c as A, SystolicBp};
+        assert_eq!(lab_number(A, 5.0, "%"), "5.0");
+        assert_eq!(lab_number(A, 5.14, "%"), "5.1");
+        assert_eq!(lab_number(G, 93.7, "mg/dL"), "94");
+        assert_eq!(lab_number(A, 31.1, "mmol/mol"), "31");
+        assert_eq!(lab_number(G, 5.2, "mmol/L"), "5.2");
+        assert_eq!(lab_number(SystolicBp, 128.0, "mmHg"), "128");
+        assert_eq!(lab_number(DiastolicBp, 79.5, "mmHg"), "80");
+    }
+
+    /// Demo, 150 participants, SG-134 with a glucose-lowering medicine, September: HbA1c
+    /// 47 mmol/mol (6.45 %) stood as "6.5 %" beside "prediabetes range" (6.5 % is the diabetes
+    /// cut-off). A value is never rounded across the cut-off of its own range.
+    #[test]
+    fn lab_values_are_not_rounded_across_their_ranges_cut_off() {
+        use LabTest::{FastingGlucose as G, Hba1c as A};
+        let pct = cohortpress_metric_api::units::hba1c_mmolmol_to_percent(47.0);
+        assert_eq!(lab_number(A, pct, "%"), "6.4");
+        assert_eq!(lab_number(A, 47.0, "mmol/mol"), "47");
+        assert_eq!(lab_number(A, 6.5, "%"), "6.5");
+        assert_eq!(lab_number(A, 6.54, "%"), "6.5");
+        assert_eq!(lab_number(A, 5.66, "%"), "5.6");
+        assert_eq!(lab_number(A, 5.64, "%"), "5.6");
+        // 38.6 mmol/mol is 5.68 %, normal; 39 mmol/mol would read as 5.72 %, prediabetes.
+        assert_eq!(lab_number(A, 38.6, "mmol/mol"), "38");
+        // 125.6 mg/dL is in the prediabetes range; "126 mg/dL" and "7.0 mmol/L" would not be.
+        let mmol = 125.6 / cohortpress_metric_api::units::GLUCOSE_MGDL_PER_MMOLL;
+        assert_eq!(lab_number(G, mmol, "mmol/L"), "6.9");
+        assert_eq!(lab_number(G, 125.6, "mg/dL"), "125");
+        assert_eq!(lab_number(G, 126.0, "mg/dL"), "126");
+        assert_eq!(lab_number(G, 7.0, "mmol/L"), "7.0");
     }
 
     /// "Going down, by about −1.32 kg/week" said the sign twice.

@@ -77,6 +77,14 @@ struct Contexts {
     group: GroupReportContext,
     /// The HTML of [`SNAPSHOT_ID`] rendered from the library model with the built-in templates.
     snapshot_html: String,
+    /// Each participant's row for the group step, with their id, enrolment day and last
+    /// weigh-in day up to the period's end.
+    summary_rows: Vec<(
+        String,
+        chrono::NaiveDate,
+        Option<chrono::NaiveDate>,
+        cohortpress::group::ParticipantSummary,
+    )>,
 }
 
 fn contexts() -> &'static Contexts {
@@ -106,6 +114,7 @@ fn contexts() -> &'static Contexts {
         let mut rows = Vec::new();
         let mut participants_with_errors = 0;
         let mut snapshot_html = String::new();
+        let mut summary_rows = Vec::new();
         for dir in &dirs {
             let loaded = cohortpress::participant::load_participant(&plan.program, dir, plan.as_of);
             let Some(data) = loaded.data else {
@@ -130,9 +139,18 @@ fn contexts() -> &'static Contexts {
                 .expect("renders");
                 snapshot_html = String::from_utf8(files[0].1.clone()).unwrap();
             }
-            rows.push(cohortpress::run::execute::summary_row(
-                &plan, &data, &results,
+            let row = cohortpress::run::execute::summary_row(&plan, &data, &results);
+            summary_rows.push((
+                data.profile.id.clone(),
+                data.profile.enrolled,
+                data.weights
+                    .iter()
+                    .map(|w| w.date)
+                    .filter(|d| *d <= plan.period.to)
+                    .max(),
+                row.clone(),
             ));
+            rows.push(row);
             participants.insert(data.profile.id.clone(), report.ctx);
         }
         let opts = cohortpress::group::GroupOptions {
@@ -147,6 +165,7 @@ fn contexts() -> &'static Contexts {
             participants,
             group,
             snapshot_html,
+            summary_rows,
         }
     })
 }
@@ -901,9 +920,24 @@ fn every_participant_report_shows_the_tidy_figures() {
             Some(fmt::weight(kg, UnitSystem::Metric)),
             "{id}"
         );
+        // The change in kg is the difference of the two weights as printed above it, so the
+        // three figures add up (SG-046 of the 150-person demo read 86.0 kg, 83.2 kg and
+        // "−2.9 kg" for a change of −2.87); the percent is the tidy one.
+        let baseline = num(row, "outcomes.baseline_weight_kg").unwrap();
+        let shown = |w: f64| (w * 10.0).round() / 10.0;
+        let change = shown(kg) - shown(baseline);
+        assert!(
+            (change - num(row, "outcomes.change_kg").unwrap()).abs() <= 0.1 + 1e-9,
+            "{id}: the shown change strays from the tidy one by more than its rounding"
+        );
+        assert_eq!(
+            kv_value(&html, "Starting weight").map(|v| unescape(&v)),
+            Some(fmt::weight(baseline, UnitSystem::Metric)),
+            "{id}"
+        );
         let expected_change = format!(
             "{} ({})",
-            fmt::weight_change(num(row, "outcomes.change_kg").unwrap(), UnitSystem::Metric),
+            fmt::weight_change(change, UnitSystem::Metric),
             fmt::percent_change(num(row, "outcomes.change_percent").unwrap())
         );
         assert_eq!(
@@ -942,6 +976,228 @@ fn group_itt_n_is_the_number_of_started_participants() {
         "{}",
         run.outcome.stderr
     );
+}
+
+/// The group report's weekly means are means of weights: a participant's week counts only up
+/// to their last weigh-in, never a day the trend model would extrapolate past it (sample,
+/// September: SG-012, SG-021, SG-031 and SG-046 stopped 7–11 days before the period's end; checked,
+/// already true: the trend series ends at the last weigh-in).
+#[test]
+fn the_group_weekly_means_use_no_week_after_a_participants_last_weigh_in() {
+    let rows = &contexts().summary_rows;
+    let mut checked = 0;
+    for (id, enrolled, last, row) in rows {
+        for &(week, _) in &row.weekly_change_percent {
+            let day = *enrolled + chrono::Duration::days(7 * week as i64 + 6);
+            let last = last.unwrap_or_else(|| panic!("{id}: weekly values without a weigh-in"));
+            assert!(
+                day <= last,
+                "{id}: week {} ends {day}, after the last weigh-in on {last}",
+                week + 1
+            );
+            checked += 1;
+        }
+    }
+    assert!(checked > 500, "{checked} week values checked");
+}
+
+/// A count of the group report as printed: exact, or the range it is shown as.
+fn group_count_holds(shown: &serde_json::Value, truth: usize, what: &str) {
+    if let Some(v) = shown.get("value") {
+        assert_eq!(v.as_u64(), Some(truth as u64), "{what}");
+    } else {
+        let lo = shown["at_least"]
+            .as_u64()
+            .unwrap_or_else(|| panic!("{what}: {shown}"));
+        let hi = shown["at_most"]
+            .as_u64()
+            .unwrap_or_else(|| panic!("{what}: {shown}"));
+        assert!(
+            (lo..=hi).contains(&(truth as u64)),
+            "{what}: {truth} outside {lo}–{hi}"
+        );
+    }
+}
+
+/// A figure of the group report as printed, when shown.
+fn group_value(shown: &serde_json::Value) -> Option<f64> {
+    shown.get("value").and_then(|v| v.as_f64())
+}
+
+/// The group report's whole-program figures, recomputed independently of the group module from
+/// the participant-level tidy metrics (`metrics/participants.csv`): the intention-to-treat
+/// denominator is everyone with a baseline weight; someone whose last weigh-in is 28 days or more
+/// before the period's end has no outcome (baseline carried forward: 0 %; last observation
+/// carried forward: their trend weight at that weigh-in); completers are the rest. Means carry
+/// a t interval (n − 1 degrees of freedom), proportions a Wilson score interval (Wilson 1927,
+/// formula written out here), medians are printed to 0.5 %, means to 0.01 in `group.json`.
+#[test]
+fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
+    use statrs::distribution::{ContinuousCDF, StudentsT};
+    let run = sample_run();
+    let rows = tidy_rows(run);
+    let group: serde_json::Value = serde_json::from_str(&run.read("metrics/group.json")).unwrap();
+    let stats = &group["program"]["stats"];
+    let (mut bocf, mut locf, mut completers) = (Vec::new(), Vec::new(), Vec::new());
+    let (mut plateau, mut verdict) = (0usize, 0usize);
+    for row in &rows {
+        // A verdict on the period's end ("on a plateau at the end of the period") needs a
+        // weigh-in in its last four weeks.
+        if matches!(
+            row["trend.status"].as_str(),
+            "plateau" | "losing" | "regaining" | "stable"
+        ) {
+            let days = num(row, "trend.days_since_last_weigh_in").unwrap();
+            assert!(
+                days < 28.0,
+                "{}: {} with the last weigh-in {days} days before the period's end",
+                row["participant_id"],
+                row["trend.status"]
+            );
+        }
+        match row["trend.status"].as_str() {
+            "plateau" => {
+                plateau += 1;
+                verdict += 1;
+            }
+            "losing" | "regaining" | "stable" => verdict += 1,
+            _ => {}
+        }
+        let Some(b) = num(row, "outcomes.baseline_weight_kg") else {
+            continue;
+        };
+        let last = num(row, "trend.current_weight_kg");
+        let recent = num(row, "trend.days_since_last_weigh_in").is_some_and(|d| d < 28.0);
+        let pct = |w: f64| 100.0 * (w - b) / b;
+        match last.filter(|_| recent) {
+            Some(w) => {
+                bocf.push(pct(w));
+                completers.push(pct(w));
+            }
+            None => bocf.push(0.0),
+        }
+        locf.push(pct(last.unwrap_or(b)));
+    }
+    let started = bocf.len();
+    assert!(started >= 40, "the sample has {started} started");
+    let e = &stats["enrolment"];
+    group_count_holds(&e["started"], started, "started");
+    group_count_holds(&e["with_outcome"], completers.len(), "with an outcome");
+    group_count_holds(
+        &e["without_outcome"],
+        started - completers.len(),
+        "without an outcome",
+    );
+    if let Some(r) = group_value(&e["retention_percent"]) {
+        assert!((r - 100.0 * completers.len() as f64 / started as f64).abs() < 1e-9);
+    }
+
+    // Means with their t intervals, and medians.
+    let mut means_checked = 0;
+    for (line, values) in [
+        ("bocf", &bocf),
+        ("locf", &locf),
+        ("completers", &completers),
+    ] {
+        let shown = &stats["weight_change"][line];
+        group_count_holds(&shown["n"], values.len(), line);
+        let n = values.len() as f64;
+        let mean = values.iter().sum::<f64>() / n;
+        let sd = (values.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+        let t = StudentsT::new(0.0, 1.0, n - 1.0)
+            .unwrap()
+            .inverse_cdf(0.975);
+        let (lo, hi) = (mean - t * sd / n.sqrt(), mean + t * sd / n.sqrt());
+        let close = |printed: f64, truth: f64, what: &str| {
+            assert!(
+                (printed - truth).abs() <= 0.005 + 1e-9,
+                "{line} {what}: printed {printed}, recomputed {truth}"
+            )
+        };
+        let p = &shown["percent"];
+        if let Some(m) = group_value(&p["mean"]) {
+            close(m, mean, "mean");
+            close(group_value(&p["sd"]).unwrap(), sd, "sd");
+            close(
+                p["mean_ci"]["value"]["lo"].as_f64().unwrap(),
+                lo,
+                "lower limit",
+            );
+            close(
+                p["mean_ci"]["value"]["hi"].as_f64().unwrap(),
+                hi,
+                "upper limit",
+            );
+            means_checked += 1;
+        }
+        if let Some(m) = group_value(&p["median"]) {
+            let mut s = values.clone();
+            s.sort_by(f64::total_cmp);
+            let k = s.len();
+            let median = if k % 2 == 1 {
+                s[k / 2]
+            } else {
+                (s[k / 2 - 1] + s[k / 2]) / 2.0
+            };
+            assert_eq!(m, (median / 0.5).round() * 0.5, "{line} median {median}");
+            // Its distribution-free interval: the k-th and (n − k + 1)-th values, k the largest
+            // with P(Binomial(n, ½) ≤ k − 1) ≤ 2.5 %; printed with the limits rounded outward
+            // to the 0.5 % grid.
+            use statrs::distribution::{Binomial, DiscreteCDF};
+            let b = Binomial::new(0.5, k as u64).unwrap();
+            let mut r = 0usize;
+            while r < k.div_ceil(2) && b.cdf(r as u64) <= 0.025 + 1e-12 {
+                r += 1;
+            }
+            let ci = &p["median_ci"]["value"];
+            if r > 0 && ci.is_object() {
+                let (lo, hi) = (s[r - 1], s[k - r]);
+                let (plo, phi) = (ci["lo"].as_f64().unwrap(), ci["hi"].as_f64().unwrap());
+                assert!(
+                    plo <= lo + 1e-9 && lo - plo < 0.5 && phi >= hi - 1e-9 && phi - hi < 0.5,
+                    "{line} median interval {lo}–{hi} printed {plo}–{phi}"
+                );
+            }
+        }
+    }
+    assert!(means_checked >= 1, "no mean shown to check");
+
+    // Milestones: reached on the baseline-carried-forward change, of everyone who started,
+    // with a Wilson interval.
+    let z: f64 = 1.959_963_984_540_054;
+    let wilson = |x: usize, n: usize| {
+        let (x, n) = (x as f64, n as f64);
+        let p = x / n;
+        let centre = (p + z * z / (2.0 * n)) / (1.0 + z * z / n);
+        let half = z / (1.0 + z * z / n) * (p * (1.0 - p) / n + z * z / (4.0 * n * n)).sqrt();
+        (100.0 * (centre - half), 100.0 * (centre + half))
+    };
+    let mut shares_checked = 0;
+    for m in stats["milestones"].as_array().unwrap() {
+        let k = m["loss_at_least_percent"].as_f64().unwrap();
+        let reached = bocf.iter().filter(|&&c| c <= -k + 1e-9).count();
+        group_count_holds(&m["reached"], reached, &format!("reached {k} %"));
+        group_count_holds(&m["denominator"], started, &format!("of, {k} %"));
+        if let Some(pct) = group_value(&m["percent"]) {
+            assert!((pct - 100.0 * reached as f64 / started as f64).abs() < 1e-9);
+            let (lo, hi) = wilson(reached, started);
+            assert!((m["ci"]["value"]["lo"].as_f64().unwrap() - lo).abs() < 1e-6);
+            assert!((m["ci"]["value"]["hi"].as_f64().unwrap() - hi).abs() < 1e-6);
+            shares_checked += 1;
+        }
+    }
+    // Plateau prevalence: of those whose trend gives a verdict on the period's end.
+    let pl = &stats["plateau"];
+    group_count_holds(&pl["in_plateau"], plateau, "on a plateau");
+    group_count_holds(&pl["with_verdict"], verdict, "with a verdict");
+    if let Some(pct) = group_value(&pl["percent"]) {
+        assert!((pct - 100.0 * plateau as f64 / verdict as f64).abs() < 1e-9);
+        let (lo, hi) = wilson(plateau, verdict);
+        assert!((pl["ci"]["value"]["lo"].as_f64().unwrap() - lo).abs() < 1e-6);
+        assert!((pl["ci"]["value"]["hi"].as_f64().unwrap() - hi).abs() < 1e-6);
+        shares_checked += 1;
+    }
+    assert!(shares_checked >= 1, "no share shown to check");
 }
 
 // ---------------------------------------------------------------------------------------------

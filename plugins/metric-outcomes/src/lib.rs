@@ -50,10 +50,14 @@
 //!   `low_bmi_losing_below` (20 kg/m²) while the weight trend is still falling (the trend's
 //!   status is `losing`, or its slope's whole 95 % interval is below zero). BMI 18.5–20 is the
 //!   band the Malnutrition Universal Screening Tool already scores as a risk, and weight lost
-//!   on top of it adds to the score (BAPEN 2003, MUST; from memory); a report must not read as
+//!   on top of it adds to the score (BAPEN 2003, MUST: BMI 18.5–20 scores 1, under 18.5 scores
+//!   2, unplanned loss of 5–10 % in 3–6 months 1; checked against the tool's published score
+//!   sheet); a report must not read as
 //!   encouragement to go on losing there. From age 70 (at the period's end) the cut-off is
 //!   `low_bmi_losing_below_70_plus` (22 kg/m²), the GLIM low-BMI criterion for older adults
-//!   (Cederholm et al. 2019, Clin Nutr 38:1–9; from memory).
+//!   (Cederholm et al. 2019, Clin Nutr 38:1–9: low BMI under 20 below age 70, under 22 from
+//!   70; checked against published summaries of the criteria. Some write the older band as
+//!   "> 70", leaving 70 itself open; the cut-off applies from 70, the cautious reading).
 //! * `lab_diabetes_range` (clinical) / `lab_prediabetes_range` (notice): judged on the latest
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
@@ -113,11 +117,11 @@ pub const PREGNANCY_FLAG: &str = "pregnant";
 /// (WHO 2000, Technical Report Series 894: underweight is BMI < 18.5).
 pub const UNDERWEIGHT_BMI_BELOW: f64 = 18.5;
 /// Default of `low_bmi_losing_below`, kg/m²: below it a weight trend that is still falling
-/// raises `low_bmi` (BMI 18.5–20 scores a malnutrition risk: MUST, BAPEN 2003; from memory).
+/// raises `low_bmi` (BMI 18.5–20 scores a malnutrition risk: MUST, BAPEN 2003).
 pub const LOW_BMI_LOSING_BELOW: f64 = 20.0;
 /// Default of `low_bmi_losing_below_70_plus`, kg/m²: the same test for people aged 70 or over,
 /// whose BMI counts as low below 22 (GLIM criteria: low BMI < 20 kg/m² under 70 years, < 22 at
-/// 70 and over; Cederholm et al. 2019, Clin Nutr 38:1–9 — from memory).
+/// 70 and over; Cederholm et al. 2019, Clin Nutr 38:1–9, see the module notes).
 pub const LOW_BMI_LOSING_BELOW_70_PLUS: f64 = 22.0;
 /// Age from which `low_bmi_losing_below_70_plus` applies, years (GLIM 2019, as above).
 pub const OLDER_ADULT_AGE: f64 = 70.0;
@@ -139,6 +143,38 @@ pub fn bmi_one_decimal(bmi: f64) -> f64 {
         rounded
     } else {
         ((bmi + CUT_EPS) * 10.0).floor() / 10.0
+    }
+}
+
+/// A glucose or HbA1c value as the reports print it, in `unit` (`%`, `mmol/mol`, `mmol/L` or
+/// `mg/dL`) to `decimals` places, rounded unless rounding would carry it across the ADA cut-off
+/// that sets its category; it is then cut towards its own side instead. 47 mmol/mol is 6.45 %
+/// NGSP, in the prediabetes range, and rounds to "6.5 %", the diabetes cut-off: a report read
+/// "The most recent HbA1c (6.5 %, …) is in the prediabetes range" (demo, 150, SG-134 with its
+/// September result). It prints 6.4 %; 6.46 % prints 6.4, 6.5 % stays 6.5. Other tests and
+/// units are rounded as they are.
+pub fn lab_shown(test: LabTest, value: f64, unit: &str, decimals: i32) -> f64 {
+    let class = |v: f64| -> Option<LabCategory> {
+        match (test, unit) {
+            (LabTest::Hba1c, "%") => Some(hba1c_class(v)),
+            (LabTest::Hba1c, "mmol/mol") => Some(hba1c_class(
+                cohortpress_metric_api::units::hba1c_mmolmol_to_percent(v),
+            )),
+            (LabTest::FastingGlucose, "mmol/L") => Some(fasting_glucose_class(v)),
+            (LabTest::FastingGlucose, "mg/dL") => {
+                Some(fasting_glucose_class(v / GLUCOSE_MGDL_PER_MMOLL))
+            }
+            _ => None,
+        }
+    };
+    let f = 10f64.powi(decimals);
+    let rounded = (value * f).round() / f;
+    if class(rounded) == class(value) {
+        rounded
+    } else if rounded > value {
+        (value * f).floor() / f
+    } else {
+        (value * f).ceil() / f
     }
 }
 
@@ -1201,11 +1237,11 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Sex) {
             _ => continue,
         };
         let shown = match l.test {
-            LabTest::Hba1c => format!("{:.1} %", l.value),
+            LabTest::Hba1c => format!("{:.1} %", lab_shown(l.test, l.value, "%", 1)),
             _ => format!(
                 "{:.1} mmol/L ({:.0} mg/dL)",
-                l.value,
-                l.value * GLUCOSE_MGDL_PER_MMOLL
+                lab_shown(l.test, l.value, "mmol/L", 1),
+                lab_shown(l.test, l.value * GLUCOSE_MGDL_PER_MMOLL, "mg/dL", 0)
             ),
         };
         output.push_flag(

@@ -622,7 +622,7 @@ fn low_bmi_flag_near_the_floor_while_still_losing() {
 
 /// A man of 76 at BMI 21.8 who had lost 20 % and was still losing 0.6 kg a week got "Holding
 /// your new weight … if you would like to stop losing" and no caution: the near-floor test
-/// stopped at BMI 20. From 70 a BMI under 22 counts as low (GLIM 2019, from memory), so the
+/// stopped at BMI 20. From 70 a BMI under 22 counts as low (GLIM 2019, Cederholm et al.), so the
 /// falling trend raises `low_bmi` there; the same record at 45, or the 76-year-old steady, does
 /// not.
 #[test]
@@ -767,6 +767,36 @@ fn labs_table_and_lab_flags() {
         assert!(!f.message.contains("has diabetes"), "{}", f.message);
         assert!(f.message.contains("not a diagnosis"), "{}", f.message);
     }
+}
+
+/// Demo, 150 participants, SG-134, September: HbA1c 47 mmol/mol (6.45 % NGSP) raised
+/// "The most recent HbA1c (6.5 %, …) is in the prediabetes range": 6.5 % is the diabetes
+/// cut-off (ADA 2025 §2). The message prints 6.4 %; a fasting glucose of 125.6 mg/dL prints
+/// 6.9 mmol/L (125 mg/dL), not 7.0 (126), beside "prediabetes range".
+#[test]
+fn a_lab_flag_never_prints_a_value_rounded_across_its_ranges_cut_off() {
+    let mut p = steady_loser();
+    let pct = cohortpress_metric_api::units::hba1c_mmolmol_to_percent(47.0);
+    let mmol = 125.6 / cohortpress_metric_api::units::GLUCOSE_MGDL_PER_MMOLL;
+    p.labs = vec![
+        lab(1, LabTest::Hba1c, pct, "mmol/mol", 47.0),
+        lab(1, LabTest::FastingGlucose, mmol, "mg/dL", 125.6),
+    ];
+    let out = run(&ctx(day(0), day(40), None), &p);
+    let messages: Vec<&str> = out.flags.iter().map(|f| f.message.as_str()).collect();
+    assert_eq!(messages.len(), 2, "{messages:?}");
+    assert!(
+        messages
+            .iter()
+            .any(|m| m.starts_with("The most recent HbA1c (6.4 %,") && m.contains("prediabetes")),
+        "{messages:?}"
+    );
+    assert!(
+        messages.iter().any(|m| m
+            .starts_with("The most recent fasting glucose (6.9 mmol/L (125 mg/dL),")
+            && m.contains("prediabetes")),
+        "{messages:?}"
+    );
 }
 
 fn num(c: &Cell) -> f64 {

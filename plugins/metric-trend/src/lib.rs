@@ -1087,7 +1087,13 @@ fn compute_trend(
         .iter()
         .rev()
         .find(|p| p.kind == WindowKind::Plateau && p.end + 3 >= last_idx);
-    let status = current_status(window.as_ref(), e + 1 >= l, current_plateau.is_some());
+    // A plateau still going at the last weigh-in speaks for the period's end only when that
+    // weigh-in lies inside the last window (fewer than `l` days before the end).
+    let status = current_status(
+        window.as_ref(),
+        e + 1 >= l,
+        current_plateau.is_some() && gap < l,
+    );
     out.push_text(names::STATUS, status.as_str(), status.label());
     out.push_scalar(
         names::PLATEAU_CONFIDENCE,
@@ -1266,6 +1272,10 @@ fn status_code(w: &plateau::WindowVerdict, full_window: bool) -> Status {
 /// even when too few weigh-ins or too wide an interval keep the window from a verdict of its
 /// own. Sample seed 7, SG-264, September: "held steady … (a plateau)" above a recent rate of
 /// +0.42 kg/week (95 % 0.06 to 0.77), which also kept a confirmed regain from being met as one.
+/// `plateau_now` is false when the last weigh-in lies a whole window or more before the period's
+/// end: the last four weeks then hold no weigh-in, and a plateau found up to that weigh-in says
+/// nothing about them (demo program, SG-019: "held steady over the last four weeks" 36 days
+/// after the last weigh-in).
 fn current_status(
     window: Option<&plateau::WindowVerdict>,
     full_window: bool,

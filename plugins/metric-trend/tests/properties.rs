@@ -305,6 +305,41 @@ fn a_long_silence_before_the_period_end_gives_no_verdict() {
     assert!(out.scalar("current_weight_kg").is_some());
 }
 
+/// A plateau that was still going at the last weigh-in is no verdict on the period's end when
+/// that weigh-in lies more than a window before it: the demo program (150, September), SG-019,
+/// last weighed 25 Aug, read "Your weight has held steady over the last four weeks (a plateau)"
+/// and the group report counted it "on a plateau at the end of the period".
+#[test]
+fn a_plateau_that_ended_with_the_weigh_ins_weeks_before_the_period_end_is_no_verdict() {
+    let mut rng = Rng(42);
+    let w: Vec<(i64, f64)> = (0..112)
+        .map(|d| {
+            let truth = if d < 70 {
+                100.0 - 6.0 * d as f64 / 70.0
+            } else {
+                94.0
+            };
+            (d, truth + 0.5 * rng.normal())
+        })
+        .collect();
+    // The same weigh-ins read up to their last day are a plateau (see above) ...
+    assert_eq!(run(&w, 111).text("status"), Some("plateau"));
+    // ... but 36 days of silence later (as SG-019) the last four weeks hold no weigh-in.
+    let out = run(&w, 111 + 36);
+    assert_eq!(out.text("status"), Some("insufficient_data"));
+    assert_eq!(out.scalar("days_since_last_weigh_in"), Some(36.0));
+    // The plateau itself stays in the periods table, dated to the last weigh-in.
+    assert!(
+        kinds(&out)
+            .iter()
+            .any(|k| k.0 == "plateau" && k.2 == "2027-06-20"),
+        "{:?}",
+        kinds(&out)
+    );
+    // Exactly four weeks of silence: the window holds no weigh-in either.
+    assert_eq!(run(&w, 111 + 28).text("status"), Some("insufficient_data"));
+}
+
 #[test]
 fn a_single_huge_outlier_barely_moves_the_trend() {
     let clean = linear(21, 84, -0.5, 0.6, 0.7);
