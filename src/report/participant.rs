@@ -452,6 +452,9 @@ fn flags(results: &ModuleResults) -> Vec<FlagView> {
         .outputs
         .iter()
         .flat_map(|(_, o)| o.flags.iter())
+        // The energy section already says why a person who left before the period has no
+        // energy figures for it; the flag is the tidy metrics' reason.
+        .filter(|f| f.code != "left_before_period")
         .map(|f| FlagView {
             severity: match f.severity {
                 FlagSeverity::Clinical => "clinical",
