@@ -212,6 +212,78 @@ fn one_persons_weigh_ins_in_two_folders_are_not_counted_twice() {
             "{row}"
         );
     }
+    // Each of the two reports says why at its top — before the figures, and without the other
+    // folder's id (another person's id in this one's report) — where it said nothing; the
+    // other reports say nothing of it.
+    let notice = "Please check these records with your program team";
+    for (own, other) in [("SG-002", "SG-006"), ("SG-006", "SG-002")] {
+        let html = fs::read_to_string(out.join(format!("participants/{own}.html"))).unwrap();
+        let at = html
+            .find(notice)
+            .unwrap_or_else(|| panic!("{own}: no notice"));
+        assert!(at < html.find("Where you stand").unwrap(), "{own}");
+        assert!(
+            html.contains("identical, entry for entry, to those in another participant")
+                && html.contains("not counted in the group report"),
+            "{own}"
+        );
+        assert!(!html.contains(other), "{own} names {other}");
+        // Not also listed as a file "not used": the weigh-ins are used.
+        assert!(!html.contains("without your weigh-ins"), "{own}");
+    }
+    let html = fs::read_to_string(out.join("participants/SG-003.html")).unwrap();
+    assert!(!html.contains(notice));
+    // The copy removed, an incremental run recomputes SG-002 (its own files did not change):
+    // the notice goes, and SG-002 is counted again.
+    fs::remove_dir_all(&copy).unwrap();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        out.to_str().unwrap(),
+        "--incremental",
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let html = fs::read_to_string(out.join("participants/SG-002.html")).unwrap();
+    assert!(!html.contains(notice));
+    assert_eq!(left_out_note(&out), "");
+}
+
+/// `--only` a folder whose weigh-ins are a copy of a folder outside the selection: its report
+/// still says so (the copies are found over every folder of the program).
+#[test]
+fn a_copy_outside_an_only_selection_is_still_named_in_the_report() {
+    let t = ProgramTest::demo(3);
+    let out = out_dir(&t);
+    let copy = t.dir.join("participants/SG-006");
+    fs::create_dir(&copy).unwrap();
+    for e in fs::read_dir(t.dir.join("participants/SG-002")).unwrap() {
+        let e = e.unwrap();
+        fs::copy(e.path(), copy.join(e.file_name())).unwrap();
+    }
+    let profile = copy.join("profile.yaml");
+    let p = fs::read_to_string(&profile).unwrap();
+    fs::write(&profile, p.replace("id: SG-002", "id: SG-006")).unwrap();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        out.to_str().unwrap(),
+        "--only",
+        "SG-002",
+    ]);
+    assert_eq!(o.code, 4, "{o:?}");
+    let html = fs::read_to_string(out.join("participants/SG-002.html")).unwrap();
+    assert!(html.contains("Please check these records with your program team"));
+    assert!(!out.join("participants/SG-006.html").exists());
 }
 
 #[test]
