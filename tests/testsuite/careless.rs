@@ -301,6 +301,36 @@ fn one_persons_weigh_ins_in_two_folders_are_not_counted_twice() {
     assert_eq!(left_out_note(&out), "");
 }
 
+/// A copied folder whose own profile is broken: `run` leaves the other folder out of the group
+/// and says so in its report, but `check` compared usable folders only and said nothing. Both
+/// now name the copy, with the same exit code.
+#[test]
+fn check_names_a_copy_whose_partner_has_a_broken_profile_as_run_does() {
+    let t = ProgramTest::demo(3);
+    let out = out_dir(&t);
+    let copy = t.dir.join("participants/SG-006");
+    fs::create_dir(&copy).unwrap();
+    fs::copy(
+        t.dir.join("participants/SG-002/weights.csv"),
+        copy.join("weights.csv"),
+    )
+    .unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check.stdout.contains(
+            "error: participants/SG-002/weights.csv: the same weigh-ins as \
+             participants/SG-006/weights.csv (the files are identical)"
+        ),
+        "{}",
+        check.stdout
+    );
+    let o = run(&t, "html");
+    assert_eq!(o.code, check.code, "{o:?}");
+    let html = fs::read_to_string(out.join("participants/SG-002.html")).unwrap();
+    assert!(html.contains("Please check these records with your program team"));
+}
+
 /// `--only` a folder whose weigh-ins are a copy of a folder outside the selection: its report
 /// still says so (the copies are found over every folder of the program).
 #[test]
