@@ -108,13 +108,10 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
         .par_iter()
         .map(|d| participant::load_participant(prog, d, as_of))
         .collect();
-    // One person's weigh-ins in two folders: the same errors a run gives (and its exit code).
-    let same = participant::same_weigh_ins(
-        participants
-            .iter()
-            .filter(|p| p.data.is_some())
-            .map(|p| (p.id.as_str(), p.files.as_slice())),
-    );
+    // One person's weigh-ins in two folders: the same errors a run gives (and its exit code),
+    // over the same folders: every folder of the program, usable or not (a run leaves a folder
+    // out of the group when its copy's profile is broken, and `check` said nothing of it).
+    let same = participant::copied_weigh_ins(&dirs);
     for d in same {
         if let Some(p) = participants
             .iter_mut()

@@ -77,6 +77,64 @@ impl LoadedParticipant {
 /// weigh-ins, so two people's identical files are not a coincidence of one or two rows.
 pub const SAME_WEIGHTS_MIN_BYTES: u64 = 100;
 
+/// `expected` of the error [`same_weigh_ins`] gives, by which a run recognises it.
+const SAME_WEIGHTS_EXPECTED: &str = "each participant's own weigh-ins";
+
+/// Whether `d` is the error of [`same_weigh_ins`]: this folder's weigh-ins are a copy of
+/// another folder's.
+pub fn is_copy_of_another(d: &Diagnostic) -> bool {
+    d.severity == Severity::Error && d.expected.as_deref() == Some(SAME_WEIGHTS_EXPECTED)
+}
+
+/// [`same_weigh_ins`] over participant folders before they are loaded, so that each report
+/// can say so (the reports are written as each participant is processed, before any total):
+/// every folder's `weights.csv` (any case of the name, not through a link) of at least
+/// [`SAME_WEIGHTS_MIN_BYTES`], compared by size first and hashed only when another has the
+/// same size. A run takes this as its one list of copies (report, log, data-quality list and
+/// group step), over every folder of the program, also under `--only` and `--shard`.
+pub fn copied_weigh_ins(dirs: &[ParticipantDir]) -> Vec<Diagnostic> {
+    let mut by_size: BTreeMap<u64, Vec<(&ParticipantDir, String)>> = BTreeMap::new();
+    for d in dirs {
+        let Ok(rd) = std::fs::read_dir(&d.path) else {
+            continue;
+        };
+        let Some(name) = rd
+            .filter_map(Result::ok)
+            .filter_map(|e| e.file_name().into_string().ok())
+            .find(|n| n.eq_ignore_ascii_case("weights.csv"))
+        else {
+            continue;
+        };
+        let Ok(meta) = std::fs::symlink_metadata(d.path.join(&name)) else {
+            continue;
+        };
+        if meta.is_file() && meta.len() >= SAME_WEIGHTS_MIN_BYTES {
+            by_size.entry(meta.len()).or_default().push((d, name));
+        }
+    }
+    let mut files: Vec<(String, Vec<InputFile>)> = Vec::new();
+    for same_size in by_size.values().filter(|v| v.len() > 1) {
+        for (d, name) in same_size {
+            let Ok(dir) = crate::limits::open_dir(&d.path) else {
+                continue;
+            };
+            let Ok(bytes) = crate::limits::read_input_in(&dir, name) else {
+                continue;
+            };
+            files.push((
+                d.id.clone(),
+                vec![InputFile {
+                    path: format!("{PARTICIPANTS_DIR}/{}/{name}", d.id),
+                    blake3: blake3::hash(&bytes).to_hex().to_string(),
+                    bytes: bytes.len() as u64,
+                }],
+            ));
+        }
+    }
+    files.sort_by(|a, b| a.0.cmp(&b.0));
+    same_weigh_ins(files.iter().map(|(id, f)| (id.as_str(), f.as_slice())))
+}
+
 /// Participants whose `weights.csv` is byte for byte another participant's: one person's data
 /// in two folders (enrolled twice under two ids, or a folder copied for a new participant and
 /// not emptied). Both were reported and counted in the group figures as two people, so a group
@@ -123,7 +181,7 @@ pub fn same_weigh_ins<'a>(
                     ),
                 )
                 .participant(id)
-                .expected("each participant's own weigh-ins")
+                .expected(SAME_WEIGHTS_EXPECTED)
                 .found(format!("a copy of {}", others.join(", ")))
                 .hint(
                     "a participant enrolled twice, or a folder copied for a new participant: keep \

@@ -339,8 +339,9 @@ pub enum WrittenDuration<'a> {
     /// Numbers with units (`45 min`, `1 h 15 min`, `1h`, `90 s`): the minutes, and the unit
     /// when only one was written (`min`, `h` or `s`).
     Units(f64, Option<&'static str>),
-    /// Two parts with a colon (`45:00`, `1:30`): minutes and seconds, or hours and minutes.
-    Ambiguous,
+    /// Two parts with a colon (`45:00`, `1:30`): minutes and seconds, or hours and minutes;
+    /// the two numbers as written.
+    Ambiguous(f64, f64),
     /// Not a duration form (the cell is then read as a plain number, which names the problem).
     Other,
 }
@@ -371,7 +372,12 @@ pub fn split_duration(s: &str) -> WrittenDuration<'_> {
                 }
                 WrittenDuration::Clock(h * 60.0 + m + sec / 60.0)
             }
-            [a, b] if digits(a) && digits(b) && b.len() == 2 => WrittenDuration::Ambiguous,
+            [a, b] if digits(a) && digits(b) && b.len() == 2 => {
+                match (a.parse::<f64>(), b.parse::<f64>()) {
+                    (Ok(a), Ok(b)) if b < 60.0 => WrittenDuration::Ambiguous(a, b),
+                    _ => WrittenDuration::Other,
+                }
+            }
             _ => WrittenDuration::Other,
         };
     }
@@ -634,8 +640,9 @@ mod tests {
         assert_eq!(split_duration("1.5 hours"), Units(90.0, Some("h")));
         assert_eq!(split_duration("1h"), Units(60.0, Some("h")));
         assert_eq!(split_duration("45"), Plain("45"));
-        assert_eq!(split_duration("45:00"), Ambiguous);
-        assert_eq!(split_duration("1:30"), Ambiguous);
+        assert_eq!(split_duration("45:00"), Ambiguous(45.0, 0.0));
+        assert_eq!(split_duration("1:30"), Ambiguous(1.0, 30.0));
+        assert_eq!(split_duration("1:75"), Other);
         for s in [
             "00:75:00",
             "15 min 1 h",

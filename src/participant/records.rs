@@ -1317,6 +1317,25 @@ pub fn parse_activity(
     // The first duration whose unit in the cell disagrees with the header's.
     let mut conflicts: Vec<UnitConflict> = Vec::new();
     let mut declared_rows = 0usize;
+    // Durations with one colon (`45:00`, `1:30`) are minutes:seconds or hours:minutes. An app
+    // writes every duration of its export one way; when one of them read as hours:minutes
+    // would be longer than an activity can last (`45:00` as 45 hours), the file writes
+    // minutes:seconds, and all its such durations are read so (the first such cell is named
+    // in the note). Otherwise which way cannot be told, and those rows are dropped.
+    let minutes_seconds = table.rows.iter().find_map(|r| {
+        let raw = table.get(r, "minutes")?;
+        match split_duration(raw) {
+            WrittenDuration::Ambiguous(h, m) if h * 60.0 + m > MAX_ACTIVITY_MINUTES => {
+                Some(raw.to_string())
+            }
+            _ => None,
+        }
+    });
+    let mmss_note: Option<String> = minutes_seconds.as_ref().map(|raw| {
+        format!(
+            "durations with one colon read as minutes:seconds, as `{raw}` shows (as hours:minutes it would be longer than an activity can last)"
+        )
+    });
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         let activity = c.required_text("activity", d)?;
         // A log's `Total` row is no activity: with a `met` value it was added to the day's
@@ -1367,9 +1386,13 @@ pub fn parse_activity(
                     .recognised("durations with their units (`45 min`, `1 h 15 min`)");
                 m
             }
-            WrittenDuration::Ambiguous => {
+            WrittenDuration::Ambiguous(m, sec) if mmss_note.is_some() => {
+                c.table.recognised(mmss_note.clone().expect("checked"));
+                m + sec / 60.0
+            }
+            WrittenDuration::Ambiguous(..) => {
                 d.push(
-                    c.warn("minutes", "a duration with one colon could be minutes:seconds or hours:minutes; the row is dropped")
+                    c.warn("minutes", "a duration with one colon could be minutes:seconds or hours:minutes, and no duration of the file tells which; the row is dropped")
                         .expected("minutes (`45`), a clock duration h:mm:ss (`0:45:00`) or a duration with units (`45 min`, `1 h 15 min`)")
                         .found(format!("`{raw}`"))
                         .hint("export durations as h:mm:ss or in minutes"),

@@ -169,7 +169,7 @@ pub struct Table {
     summary_rows: RefCell<(usize, Option<(u64, String)>)>,
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
     /// the file's note.
-    recognised: RefCell<std::collections::BTreeSet<&'static str>>,
+    recognised: RefCell<std::collections::BTreeSet<std::borrow::Cow<'static, str>>>,
 }
 
 impl Table {
@@ -203,8 +203,8 @@ impl Table {
     }
 
     /// Records a form of value recognised in the cells, stated once in the file's note.
-    pub fn recognised(&self, what: &'static str) {
-        self.recognised.borrow_mut().insert(what);
+    pub fn recognised(&self, what: impl Into<std::borrow::Cow<'static, str>>) {
+        self.recognised.borrow_mut().insert(what.into());
     }
 
     /// The header of `col` as written (`Weight (kg)`).
@@ -1308,25 +1308,40 @@ fn read_records(
     Some(table)
 }
 
-/// The first non-blank line of `text` when it is a title above the header: it holds no
-/// delimiter and no quote, and the next non-blank line is a header naming the date column
-/// among others.
+/// The first non-blank line of `text` when it is a title above the header: the next
+/// non-blank line is a header naming the date column among others, and the first holds no
+/// quote and either no delimiter (`Foods`, `Body`) or fewer fields than that header, none of
+/// them one of the file's columns: a health app's metadata line (the table's name, a version
+/// and a count, `com.example.health.weight,6310002,4`) above its header.
 fn title_line(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> Option<String> {
     let mut lines = text.split(['\n', '\r']).filter(|l| !l.trim().is_empty());
     let (first, second) = (lines.next()?, lines.next()?);
     let d = delimiter as char;
-    if first.contains(d) || first.contains('"') || !second.contains(d) {
+    if first.contains('"') || !second.contains(d) {
         return None;
     }
     let user_map = opts.columns.get(spec.kind());
-    let names_date = second.split(d).any(|h| {
-        let key = header_key(h.trim().trim_matches('"')).0;
-        key == "date"
-            || spec.aliases.iter().any(|(a, c)| *a == key && *c == "date")
-            || user_map
-                .and_then(|m| m.get(&key))
-                .is_some_and(|c| c == "date")
-    });
+    // Which of the file's columns a header field names, if any.
+    let column = |h: &str| -> Option<String> {
+        let key = header_key(h.trim().trim_matches('"').trim_start_matches('\u{feff}')).0;
+        if spec.all_columns().any(|c| c == key) {
+            return Some(key);
+        }
+        spec.aliases
+            .iter()
+            .find(|(a, _)| *a == key)
+            .map(|(_, c)| c.to_string())
+            .or_else(|| user_map.and_then(|m| m.get(&key)).cloned())
+    };
+    if first.contains(d)
+        && (first.split(d).count() >= second.split(d).count()
+            || first.split(d).any(|f| column(f).is_some()))
+    {
+        return None;
+    }
+    let names_date = second
+        .split(d)
+        .any(|h| column(h).is_some_and(|c| c == "date"));
     names_date.then(|| first.trim().trim_start_matches('\u{feff}').to_string())
 }
 
@@ -1527,11 +1542,39 @@ pub enum NumericOrder {
     MonthFirst,
 }
 
-/// The first number, the second, the year and the separator of a numeric date.
-type NumericParts = (u32, u32, i32, char);
+/// The first number, the second, the year, the separator of a numeric date, and whether the
+/// year was written with two digits (`05/01/26`).
+type NumericParts = (u32, u32, i32, char, bool);
 
-/// The (first, second, year, separator) of `dd/mm/yyyy`-like text (one or two digits for the
-/// first two, slashes or dashes), before any time.
+/// The date of numeric parts read in `order`. A two-digit year is read in the one century that
+/// puts the date within the program (give or take [`SERIAL_DATE_MARGIN_DAYS`], as serial
+/// dates), and not at all without a program span: `26` alone could be 1926 or 2026.
+fn place(
+    (a, b, y, _, short): NumericParts,
+    order: NumericOrder,
+    span: Option<(NaiveDate, NaiveDate)>,
+) -> Option<NaiveDate> {
+    let (day, month) = match order {
+        NumericOrder::DayFirst => (a, b),
+        NumericOrder::MonthFirst => (b, a),
+    };
+    if !short {
+        return NaiveDate::from_ymd_opt(y, month, day);
+    }
+    let (start, end) = span?;
+    let margin = chrono::Duration::days(SERIAL_DATE_MARGIN_DAYS);
+    let mut fits = (start.year() / 100 - 1..=end.year() / 100 + 1)
+        .filter_map(|c| NaiveDate::from_ymd_opt(c * 100 + y, month, day))
+        .filter(|d| *d >= start - margin && *d <= end + margin);
+    match (fits.next(), fits.next()) {
+        (Some(d), None) => Some(d),
+        _ => None,
+    }
+}
+
+/// The (first, second, year, separator, two-digit year) of `dd/mm/yyyy`-like text (one or two
+/// digits for the first two, slashes or dashes, a year of four digits or two), before any
+/// time.
 fn numeric_parts(s: &str) -> Option<NumericParts> {
     let day = s.split([' ', 'T']).next()?;
     let sep = if day.contains('/') { '/' } else { '-' };
@@ -1542,10 +1585,16 @@ fn numeric_parts(s: &str) -> Option<NumericParts> {
     let digits = |t: &str, n: std::ops::RangeInclusive<usize>| {
         n.contains(&t.len()) && t.bytes().all(|c| c.is_ascii_digit())
     };
-    if !(digits(a, 1..=2) && digits(b, 1..=2) && digits(y, 4..=4)) {
+    if !(digits(a, 1..=2) && digits(b, 1..=2) && (digits(y, 4..=4) || digits(y, 2..=2))) {
         return None;
     }
-    Some((a.parse().ok()?, b.parse().ok()?, y.parse().ok()?, sep))
+    Some((
+        a.parse().ok()?,
+        b.parse().ok()?,
+        y.parse().ok()?,
+        sep,
+        y.len() == 2,
+    ))
 }
 
 /// The order of a file's numeric dates (see [`NumericOrder`]): the one that reads every one of
@@ -1572,30 +1621,73 @@ fn numeric_order(
     let Some(&(first_row, first, _)) = dates.first() else {
         return Ok(None);
     };
-    let all = |f: fn(u32, u32, i32) -> Option<NaiveDate>| {
+    let span = opts.program_span;
+    let all = |order: NumericOrder| {
         dates
             .iter()
-            .all(|(_, _, (a, b, y, _))| f(*a, *b, *y).is_some())
+            .all(|(_, _, p)| place(*p, order, span).is_some())
     };
-    let day_first = all(|a, b, y| NaiveDate::from_ymd_opt(y, b, a));
-    let month_first = all(|a, b, y| NaiveDate::from_ymd_opt(y, a, b));
+    let day_first = all(NumericOrder::DayFirst);
+    let month_first = all(NumericOrder::MonthFirst);
+    let dated = table
+        .rows
+        .iter()
+        .filter(|r| table.get(r, "date").is_some())
+        .count();
+    let short = dates.iter().any(|(_, _, p)| p.4);
     match (day_first, month_first) {
         (true, false) => Ok(Some(NumericOrder::DayFirst)),
         (false, true) => Ok(Some(NumericOrder::MonthFirst)),
+        // Two-digit years that no one order puts within the program, in a file of such dates:
+        // which dates they are cannot be told, and dropping every row one by one would hide
+        // it. Refused at the first date that gives it away.
+        (false, false) if short && dates.len() == dated => {
+            let unplaced = dates.iter().find(|(_, _, p)| {
+                place(*p, NumericOrder::DayFirst, span).is_none()
+                    && place(*p, NumericOrder::MonthFirst, span).is_none()
+            });
+            let within = match span {
+                Some((a, b)) => format!(
+                    "within the program ({a} to {b}, give or take {SERIAL_DATE_MARGIN_DAYS} days)"
+                ),
+                None => "within the program".to_string(),
+            };
+            let (row, found, why) = match unplaced {
+                Some((r, s, _)) => (
+                    *r,
+                    *s,
+                    format!(
+                        "read day first or month first, in any century, `{s}` is no date {within}"
+                    ),
+                ),
+                None => (
+                    first_row,
+                    first,
+                    format!(
+                        "neither day first nor month first puts every date of the file {within}"
+                    ),
+                ),
+            };
+            let sep = dates[0].2.3;
+            Err(Box::new(
+                ctx.error(format!(
+                    "the dates have two-digit years, and {why}, so which dates they are cannot be told; the file is not used"
+                ))
+                .at(row.line, table.column("date"))
+                .field("date")
+                .expected(format!("dates with four-digit years (`2026-05-01`), or two-digit years that fall {within} in one reading only"))
+                .found(format!("`{found}`"))
+                .hint(format!(
+                    "export the dates with four-digit years (or as ISO 8601), or set `input.date_format: \"%d{sep}%m{sep}%y\"` or `\"%m{sep}%d{sep}%y\"` in program.yaml"
+                )),
+            ))
+        }
         (false, false) => Ok(None),
         // Among other dates, the few that cannot be told are warned about one by one.
-        (true, true)
-            if dates.len()
-                < table
-                    .rows
-                    .iter()
-                    .filter(|r| table.get(r, "date").is_some())
-                    .count() =>
-        {
-            Ok(None)
-        }
+        (true, true) if dates.len() < dated => Ok(None),
         (true, true) => {
             let sep = dates[0].2.3;
+            let year = if short { "%y" } else { "%Y" };
             Err(Box::new(
                 ctx.error(format!(
                     "no date of the file tells whether its day or its month comes first (`{first}`: every day is the 12th or before), so its dates cannot be read without a guess; the file is not used"
@@ -1605,7 +1697,7 @@ fn numeric_order(
                 .expected("ISO 8601 dates (`2026-05-01`), or the order set in program.yaml")
                 .found(format!("`{first}`"))
                 .hint(format!(
-                    "set `input.date_format: \"%d{sep}%m{sep}%Y\"` (day first) or `\"%m{sep}%d{sep}%Y\"` (month first) in program.yaml, or export the dates as ISO 8601"
+                    "set `input.date_format: \"%d{sep}%m{sep}{year}\"` (day first) or `\"%m{sep}%d{sep}{year}\"` (month first) in program.yaml, or export the dates as ISO 8601"
                 )),
             ))
         }
@@ -1877,12 +1969,13 @@ impl Cells<'_> {
     /// with a time if one follows.
     fn numeric_date(&self, s: &str) -> Option<When> {
         let order = self.table.numeric_order?;
-        let (a, b, y, _) = numeric_parts(s)?;
-        let (day, month) = match order {
-            NumericOrder::DayFirst => (a, b),
-            NumericOrder::MonthFirst => (b, a),
-        };
-        let date = NaiveDate::from_ymd_opt(y, month, day)?;
+        let parts = numeric_parts(s)?;
+        let date = place(parts, order, self.opts.program_span)?;
+        if parts.4 {
+            self.table.recognised(
+                "two-digit years (`05/01/26`) read in the one century that puts the dates within the program",
+            );
+        }
         let rest = s.split_once([' ', 'T']).map(|(_, t)| t.trim());
         let time = match rest {
             None | Some("") => None,
@@ -2239,6 +2332,34 @@ mod tests {
             ctx.take_notes()[0].message,
             "the first line, `Body`, is a title above the header (line 2) and is not read"
         );
+        // A health app's metadata line (its table's name, a version, a count) above the
+        // header: fewer fields than the header, none of them a column. The file was refused
+        // for missing columns.
+        let text =
+            "com.example.health.weight,6310002,4\nDate,Weight,Unit,Source\n2026-05-01,72.5,kg,\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!((t.header_line, t.rows[0].line), (2, 3));
+        assert_eq!(t.get(&t.rows[0], "weight"), Some("72.5"));
+        assert!(
+            ctx.take_notes()[0]
+                .message
+                .starts_with("the first line, `com.example.health.weight,63"),
+        );
+        // A first line that names a column, or has as many fields as the next, is the header.
+        // (As before, such a header lacks the file's columns, and the file is refused.)
+        for text in [
+            "a,b,c\nDate,Weight,Unit\n2026-05-01,72.5,kg\n",
+            "Date,x\nDate,Weight,Unit\n2026-05-01,72.5,kg\n",
+        ] {
+            let (t, d) = read(text, &CsvOptions::default());
+            assert!(t.is_none(), "{text}");
+            assert!(
+                d[0].message.contains("missing required columns"),
+                "{}",
+                d[0]
+            );
+        }
         // A one-column first line above data is no title: the header is missing, as before.
         let (t, d) = read("weight\n2026-05-01,72.5,kg\n", &CsvOptions::default());
         assert!(t.is_none());
@@ -2814,6 +2935,71 @@ mod tests {
             "{}",
             d[0]
         );
+    }
+
+    /// `05/01/26`: a two-digit year, in a program of 2026. Such dates were dropped row by row
+    /// as unreadable. They are read in the one century and the one order that put every date
+    /// of the file within the program; when both orders do, or no reading does, the file is
+    /// refused at a date (line, column), never read on a guess.
+    #[test]
+    fn two_digit_years_are_read_only_when_the_program_places_them() {
+        let d = |s: &str| NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap();
+        let opts = CsvOptions {
+            program_span: Some((d("2026-04-01"), d("2026-09-30"))),
+            ..CsvOptions::default()
+        };
+        let dates = |text: &str| {
+            let (t, diags) = read(text, &opts);
+            let got = t.map(|t| {
+                let ctx = FileCtx::new("P1", "w.csv");
+                let mut d2 = Vec::new();
+                let v: Vec<String> = t
+                    .rows
+                    .iter()
+                    .map(|row| {
+                        let c = Cells {
+                            table: &t,
+                            row,
+                            ctx: &ctx,
+                            opts: &opts,
+                        };
+                        c.when("date", &mut d2).unwrap().date.to_string()
+                    })
+                    .collect();
+                assert!(d2.is_empty(), "{d2:?}");
+                v
+            });
+            (got, diags)
+        };
+        // Month first, as 05/18 shows; 26 is 2026, the century the program is in.
+        let (got, diags) =
+            dates("date,weight,unit\n05/04/26,90,kg\n05/18/26,89.5,kg\n06/01/26 7:10 AM,89,kg\n");
+        assert!(diags.is_empty(), "{diags:?}");
+        assert_eq!(got.unwrap(), ["2026-05-04", "2026-05-18", "2026-06-01"]);
+        // Nothing tells the order: refused at the first date, with the two-digit-year formats.
+        let (got, diags) = dates("date,weight,unit\n04/05/26,90,kg\n05/06/26,89.5,kg\n");
+        assert!(got.is_none());
+        assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(1)));
+        assert!(
+            diags[0].hint.as_deref().unwrap().contains("%d/%m/%y"),
+            "{}",
+            diags[0]
+        );
+        // 2019 (or 2119) is no date of a 2026 program, whichever way round: refused at it.
+        let (got, diags) = dates("date,weight,unit\n13/05/26,90,kg\n14/05/19,89.5,kg\n");
+        assert!(got.is_none());
+        assert_eq!(diags.len(), 1, "{diags:?}");
+        assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(1)));
+        assert_eq!(diags[0].found.as_deref(), Some("`14/05/19`"));
+        assert!(diags[0].message.contains("two-digit years"), "{}", diags[0]);
+        // Without the program's dates a two-digit year cannot be placed (1926 or 2026?).
+        let (t, diags) = read("date,weight,unit\n05/18/26,90,kg\n", &CsvOptions::default());
+        assert!(t.is_none());
+        assert!(diags[0].message.contains("two-digit years"), "{}", diags[0]);
+        // Four-digit years are read as before, whatever the program's dates.
+        let (got, diags) = dates("date,weight,unit\n05/18/2031,90,kg\n");
+        assert!(diags.is_empty(), "{diags:?}");
+        assert_eq!(got.unwrap(), ["2031-05-18"]);
     }
 
     #[test]

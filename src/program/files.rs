@@ -103,6 +103,8 @@ pub const WEIGHTS: FileSpec = FileSpec {
         ("date_time", "date"),
         ("timestamp", "date"),
         ("measured_at", "date"),
+        // Phone health apps' weight tables: the measurement's time.
+        ("start_time", "date"),
         ("body_weight", "weight"),
         ("bodyweight", "weight"),
         ("mass", "weight"),

@@ -76,6 +76,9 @@ pub fn reason(code: &str) -> &'static str {
         "very_low_intake" => {
             "Logged intake very low (below the program's very-low-intake threshold on average)"
         }
+        "very_low_implied_intake" => {
+            "Weight coming down as fast as only a very low intake would make it, or faster than eating nothing explains (a very low intake, or a step in the weigh-ins?)"
+        }
         "low_intake" => "Logged intake below the usual floor for eating less without supervision",
         "low_bmi" => {
             "BMI in the underweight range, or low for the person's age while weight is still coming down"

@@ -258,13 +258,12 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
             sections.push(section(plan, s, &title, &anchor, &mut charts));
         }
     }
+    // No number: the count of folders left out is a count of people the audit never sees. A
+    // month re-issued with one folder broken had its enrolled count hidden by the audit (it
+    // differs from the first release's by one person), and "One participant folder could not
+    // be used" gave it back by subtraction. The staff's data-quality list has the number.
     if left_out > 0 {
-        let n = left_out;
-        notes.push(if n == 1 {
-            "One participant folder could not be used because of input errors and is not counted here; the program staff's data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems.".to_string()
-        } else {
-            format!("{n} participant folders could not be used because of input errors and are not counted here; the program staff's data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems.")
-        });
+        notes.push("Some participant folders could not be used because of input errors and are not counted here; the program staff's data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names them and the problems.".to_string());
     }
     let m = &g.methods;
     let methods = vec![

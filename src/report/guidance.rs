@@ -50,13 +50,16 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 8] = [
+pub const HOLDING_FLAGS: [&str; 9] = [
     "fast_loss",
     "fast_gain",
     // Clinical only in the period a step in the weigh-ins is first found: it may be a real
     // change of fluid or weight that the figures now leave out.
     "weigh_in_step",
     "very_low_intake",
+    // The weight trend implies an intake below a very-low-calorie diet's, or a fall faster
+    // than eating nothing explains (energy module).
+    "very_low_implied_intake",
     "low_intake",
     "low_bmi",
     "medication_review",
@@ -1306,6 +1309,14 @@ mod tests {
             (
                 "low intake holds advice",
                 with(&|s| s.clinical_flags = vec!["low_intake".into()], Plateau),
+                Phase::Clinician,
+            ),
+            (
+                "a very low intake implied by the weight trend holds advice",
+                with(
+                    &|s| s.clinical_flags = vec!["very_low_implied_intake".into()],
+                    Losing,
+                ),
                 Phase::Clinician,
             ),
             (

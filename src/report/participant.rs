@@ -47,6 +47,9 @@ pub struct ParticipantReportContext {
     pub labs: Option<TableView>,
     /// Flags raised by the modules (clinical ones first).
     pub flags: Vec<FlagView>,
+    /// Why the figures may not be this participant's at all, shown before them: their
+    /// weigh-ins are a copy of another participant folder's (which is not named).
+    pub record_notice: Option<String>,
     /// Data problems found in this participant's files.
     pub data_notes: Vec<String>,
     /// Modules that failed for this participant.
@@ -247,6 +250,10 @@ pub fn build(
         guidance,
         labs: v.outcomes.as_ref().and_then(labs),
         flags: flags(results),
+        record_notice: diags
+            .iter()
+            .any(crate::participant::is_copy_of_another)
+            .then(|| COPY_NOTICE.to_string()),
         data_notes: data_notes(diags),
         module_failures: results
             .failures
@@ -478,6 +485,9 @@ fn flags(results: &ModuleResults) -> Vec<FlagView> {
         .outputs
         .iter()
         .flat_map(|(_, o)| o.flags.iter())
+        // The energy section already says why a person who left before the period has no
+        // energy figures for it; the flag is the tidy metrics' reason.
+        .filter(|f| f.code != "left_before_period")
         .map(|f| FlagView {
             severity: match f.severity {
                 FlagSeverity::Clinical => "clinical",
@@ -497,10 +507,18 @@ fn flags(results: &ModuleResults) -> Vec<FlagView> {
     flags
 }
 
-/// Data problems found in this participant's files, in plain words.
+/// The notice of a report whose weigh-ins are byte for byte another participant folder's. It
+/// names no other folder (that would be another person's id in this one's report); the staff's
+/// data-quality list and the log do. The figures are still shown: the team may find this
+/// folder is the right one.
+pub const COPY_NOTICE: &str = "The weigh-ins in this report are identical, entry for entry, to those in another participant's folder in this program. Either the same person's records are filed twice, or a folder was copied for a new participant and not emptied, so the weight figures below may not be yours. Until the program team has corrected it, this report is not counted in the group report. If these weigh-ins are not yours, please tell the program team.";
+
+/// Data problems found in this participant's files, in plain words (a copy of another folder's
+/// weigh-ins is the report's notice instead).
 fn data_notes(diags: &[Diagnostic]) -> Vec<String> {
     diags
         .iter()
+        .filter(|d| !crate::participant::is_copy_of_another(d))
         .map(|d| {
             let file = d.file.rsplit('/').next().unwrap_or(&d.file);
             let line = d.line.map(|l| format!(", line {l}")).unwrap_or_default();

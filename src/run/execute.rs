@@ -99,6 +99,10 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
         .build()
         .map_err(|e| RunError::Output(format!("cannot start worker threads: {e}")))?;
     let key_hash = plan.key.hash();
+    // One person's weigh-ins in two folders, found before any report is written so that both
+    // reports say so; over every folder of the program, so `--only` and each shard find the
+    // same copies as a whole run.
+    let copies = participant::copied_weigh_ins(&participant::discover(&plan.program).0);
     let phase = Instant::now();
     let progress = crate::progress::Progress::new(dirs.len() as u64);
     let columns = Mutex::new(tidy::Columns::new(plan.modules.ids()));
@@ -108,8 +112,12 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
                 // Each folder is opened and listed once, for reuse and for loading.
                 let opened = participant::open(dir);
                 let names = opened.names();
+                let own_copies: Vec<&Diagnostic> = copies
+                    .iter()
+                    .filter(|d| d.participant.as_deref() == Some(dir.id.as_str()))
+                    .collect();
                 let reused = if plan.incremental {
-                    reuse_participant(plan, &key_hash, &staging, dir, &names)?
+                    reuse_participant(plan, &key_hash, &staging, dir, &names, &own_copies)?
                 } else {
                     None
                 };
@@ -122,7 +130,10 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
                             templates: &templates,
                             staging: &staging,
                         };
-                        (process_participant(&job, dir, opened, names)?, false)
+                        (
+                            process_participant(&job, dir, opened, names, &own_copies)?,
+                            false,
+                        )
                     }
                 };
                 keep_light(&mut rec, &columns);
@@ -224,23 +235,16 @@ fn tally(
     let mut all_diags: Vec<Diagnostic> = discovery.to_vec();
     let mut rows = Vec::new();
     let mut inputs: Vec<InputFile> = Vec::new();
-    // One person's weigh-ins in two folders: an error for each, and neither in the group step
-    // (their own reports are written).
-    let files: Vec<(String, Vec<InputFile>)> = records
-        .iter()
-        .filter(|r| r.summary.is_some())
-        .map(|r| (r.id.clone(), r.input_files()))
-        .collect();
-    let same =
-        crate::participant::same_weigh_ins(files.iter().map(|(id, f)| (id.as_str(), f.as_slice())));
+    // One person's weigh-ins in two folders: an error for each (found before the reports, and
+    // kept in each record), and neither in the group step (their own reports are written and
+    // say so). Left out also when the other folder proved unusable: whose weigh-ins they are
+    // cannot be told, and the report has already said the folder is not counted.
+    let mut same = Vec::new();
     let mut excluded = std::collections::BTreeSet::new();
     for r in records {
-        let mut diags = r.diagnostics();
-        for d in same
-            .iter()
-            .filter(|d| d.participant.as_deref() == Some(r.id.as_str()))
-        {
-            diags.push(d.clone());
+        let diags = r.diagnostics();
+        for d in diags.iter().filter(|d| participant::is_copy_of_another(d)) {
+            same.push(d.clone());
             excluded.insert(r.id.as_str());
         }
         if diags.iter().any(|d| d.severity == Severity::Error) {
@@ -448,6 +452,7 @@ fn reuse_participant(
     staging: &Staging,
     dir: &ParticipantDir,
     names: &[String],
+    own_copies: &[&Diagnostic],
 ) -> Result<Option<ParticipantRecord>, RunError> {
     let prev = staging.final_dir();
     let rel = partial::cache_path(&dir.id);
@@ -460,6 +465,15 @@ fn reuse_participant(
         return Ok(None);
     };
     if rec.id != dir.id || rec.run_key != key_hash || rec.listing != names {
+        return Ok(None);
+    }
+    // A copy found or gone since (another folder changed): the report's notice changes.
+    let had: Vec<Diagnostic> = rec
+        .diagnostics()
+        .into_iter()
+        .filter(participant::is_copy_of_another)
+        .collect();
+    if had.iter().ne(own_copies.iter().copied()) {
         return Ok(None);
     }
     for f in &rec.files {
@@ -499,6 +513,7 @@ fn process_participant(
     dir: &ParticipantDir,
     opened: participant::OpenedDir,
     names: Vec<String>,
+    own_copies: &[&Diagnostic],
 ) -> Result<ParticipantRecord, RunError> {
     let Job {
         plan,
@@ -506,7 +521,12 @@ fn process_participant(
         templates,
         staging,
     } = *job;
-    let loaded = participant::load_opened(&plan.program, dir, opened, plan.as_of);
+    let mut loaded = participant::load_opened(&plan.program, dir, opened, plan.as_of);
+    // Kept with the participant's own problems: their report says it, and the data-quality
+    // list and the log name it once.
+    loaded
+        .diagnostics
+        .extend(own_copies.iter().map(|d| (*d).clone()));
     let mut rec = ParticipantRecord {
         format: partial::FORMAT,
         id: loaded.id.clone(),

@@ -146,11 +146,59 @@ fn the_group_report_names_only_the_participants_it_leaves_out() {
     assert!(out.join("participants/SG-002.html").exists());
     assert!(out.join("participants/SG-003.html").exists());
     assert!(!out.join("participants/SG-004.html").exists());
-    // It said "3 participant folders could not be used … and are not counted here".
+    // It said "3 participant folders could not be used … and are not counted here" (now: no
+    // number; see `the_left_out_note_gives_back_no_count_the_audit_hides`).
     assert_eq!(
         left_out_note(&out),
-        "2 participant folders could not be used because of input errors and are not counted here; the program staff&#x27;s data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems."
+        "Some participant folders could not be used because of input errors and are not counted here; the program staff&#x27;s data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names them and the problems."
     );
+}
+
+/// A month re-issued after one folder broke (its profile deleted), sharing the first release's
+/// ledger: the audit hides the enrolled count (prints a range), which differs from the first
+/// release's 14 by one person; the note on folders left out said "One participant folder could not be used", which
+/// gave it back (14 − 1). The note now gives no number.
+#[test]
+fn the_left_out_note_gives_back_no_count_the_audit_hides() {
+    let t = ProgramTest::demo(14);
+    let out = out_dir(&t);
+    let text = |out: &Path| {
+        let html = fs::read_to_string(out.join("group/program.html")).unwrap();
+        let mut t = String::new();
+        let mut tag = false;
+        for c in html.replace("&#x27;", "'").chars() {
+            match c {
+                '<' => tag = true,
+                '>' => {
+                    tag = false;
+                    t.push(' ');
+                }
+                c if !tag => t.push(c),
+                _ => {}
+            }
+        }
+        t.split_whitespace().collect::<Vec<_>>().join(" ")
+    };
+    assert_eq!(run(&t, "html").code, 0);
+    assert!(text(&out).contains("Enrolled 14 "), "{}", text(&out));
+    fs::remove_file(t.dir.join("participants/SG-005/profile.yaml")).unwrap();
+    assert_eq!(run(&t, "html").code, 4);
+    let second = text(&out);
+    // The audit does not print 13 (here a range such as "5–18"): a one-person difference.
+    assert!(second.contains("Enrolled "), "{second}");
+    assert!(!second.contains("Enrolled 13 "), "{second}");
+    assert!(
+        second.contains(
+            "Some participant folders could not be used because of input errors and are not counted here"
+        ),
+        "{second}"
+    );
+    // No number in front of it ("1 participant folder", "One participant folder").
+    assert!(!second.contains("One participant folder"));
+    for (at, _) in second.match_indices(" participant folder") {
+        let word = second[..at].rsplit(' ').next().unwrap();
+        assert!(!word.chars().any(|c| c.is_ascii_digit()), "{word}");
+    }
 }
 
 #[test]
@@ -184,7 +232,7 @@ fn one_persons_weigh_ins_in_two_folders_are_not_counted_twice() {
     assert!(out.join("participants/SG-006.html").exists());
     assert_eq!(
         left_out_note(&out),
-        "2 participant folders could not be used because of input errors and are not counted here; the program staff&#x27;s data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names the problems."
+        "Some participant folders could not be used because of input errors and are not counted here; the program staff&#x27;s data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names them and the problems."
     );
     let dq = fs::read_to_string(out.join("metrics/data-quality.csv")).unwrap();
     let rows: Vec<&str> = dq
@@ -212,6 +260,108 @@ fn one_persons_weigh_ins_in_two_folders_are_not_counted_twice() {
             "{row}"
         );
     }
+    // Each of the two reports says why at its top — before the figures, and without the other
+    // folder's id (another person's id in this one's report) — where it said nothing; the
+    // other reports say nothing of it.
+    let notice = "Please check these records with your program team";
+    for (own, other) in [("SG-002", "SG-006"), ("SG-006", "SG-002")] {
+        let html = fs::read_to_string(out.join(format!("participants/{own}.html"))).unwrap();
+        let at = html
+            .find(notice)
+            .unwrap_or_else(|| panic!("{own}: no notice"));
+        assert!(at < html.find("Where you stand").unwrap(), "{own}");
+        assert!(
+            html.contains("identical, entry for entry, to those in another participant")
+                && html.contains("not counted in the group report"),
+            "{own}"
+        );
+        assert!(!html.contains(other), "{own} names {other}");
+        // Not also listed as a file "not used": the weigh-ins are used.
+        assert!(!html.contains("without your weigh-ins"), "{own}");
+    }
+    let html = fs::read_to_string(out.join("participants/SG-003.html")).unwrap();
+    assert!(!html.contains(notice));
+    // The copy removed, an incremental run recomputes SG-002 (its own files did not change):
+    // the notice goes, and SG-002 is counted again.
+    fs::remove_dir_all(&copy).unwrap();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        out.to_str().unwrap(),
+        "--incremental",
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let html = fs::read_to_string(out.join("participants/SG-002.html")).unwrap();
+    assert!(!html.contains(notice));
+    assert_eq!(left_out_note(&out), "");
+}
+
+/// A copied folder whose own profile is broken: `run` leaves the other folder out of the group
+/// and says so in its report, but `check` compared usable folders only and said nothing. Both
+/// now name the copy, with the same exit code.
+#[test]
+fn check_names_a_copy_whose_partner_has_a_broken_profile_as_run_does() {
+    let t = ProgramTest::demo(3);
+    let out = out_dir(&t);
+    let copy = t.dir.join("participants/SG-006");
+    fs::create_dir(&copy).unwrap();
+    fs::copy(
+        t.dir.join("participants/SG-002/weights.csv"),
+        copy.join("weights.csv"),
+    )
+    .unwrap();
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check.stdout.contains(
+            "error: participants/SG-002/weights.csv: the same weigh-ins as \
+             participants/SG-006/weights.csv (the files are identical)"
+        ),
+        "{}",
+        check.stdout
+    );
+    let o = run(&t, "html");
+    assert_eq!(o.code, check.code, "{o:?}");
+    let html = fs::read_to_string(out.join("participants/SG-002.html")).unwrap();
+    assert!(html.contains("Please check these records with your program team"));
+}
+
+/// `--only` a folder whose weigh-ins are a copy of a folder outside the selection: its report
+/// still says so (the copies are found over every folder of the program).
+#[test]
+fn a_copy_outside_an_only_selection_is_still_named_in_the_report() {
+    let t = ProgramTest::demo(3);
+    let out = out_dir(&t);
+    let copy = t.dir.join("participants/SG-006");
+    fs::create_dir(&copy).unwrap();
+    for e in fs::read_dir(t.dir.join("participants/SG-002")).unwrap() {
+        let e = e.unwrap();
+        fs::copy(e.path(), copy.join(e.file_name())).unwrap();
+    }
+    let profile = copy.join("profile.yaml");
+    let p = fs::read_to_string(&profile).unwrap();
+    fs::write(&profile, p.replace("id: SG-002", "id: SG-006")).unwrap();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        out.to_str().unwrap(),
+        "--only",
+        "SG-002",
+    ]);
+    assert_eq!(o.code, 4, "{o:?}");
+    let html = fs::read_to_string(out.join("participants/SG-002.html")).unwrap();
+    assert!(html.contains("Please check these records with your program team"));
+    assert!(!out.join("participants/SG-006.html").exists());
 }
 
 #[test]

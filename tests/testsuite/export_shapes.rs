@@ -32,6 +32,9 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("weights-clinic-us-dates.csv", 3, false),
     ("weights-scale-app-date-rows.csv", 3, false),
     ("weights-ambiguous-slash-dates.csv", 0, true),
+    ("weights-two-digit-years.csv", 3, false),
+    ("weights-two-digit-years-ambiguous.csv", 0, true),
+    ("weights-health-app-metadata-line.csv", 3, false),
     ("intake-food-diary-per-meal.csv", 2, false),
     ("intake-food-diary-with-daily-totals.csv", 2, false),
     ("intake-title-line.csv", 2, false),
@@ -40,6 +43,7 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("activity-hms-durations.csv", 3, false),
     ("activity-minutes-in-cell.csv", 4, false),
     ("activity-start-times.csv", 3, false),
+    ("activity-mmss-durations.csv", 3, false),
 ];
 
 const PROGRAM: &str = "format_version: 1
@@ -280,6 +284,34 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         days("weights-clinic-us-dates.csv"),
         [d(5, 4), d(5, 18), d(6, 1)]
     );
+    // Two-digit years: month first, as 05/18 shows, in the program's century.
+    assert_eq!(
+        days("weights-two-digit-years.csv"),
+        [d(5, 4), d(5, 18), d(6, 1)]
+    );
+    same(
+        kg("weights-two-digit-years.csv"),
+        &[198.2 * LB, 196.9 * LB, 195.5 * LB],
+    );
+    let e = got["weights-two-digit-years-ambiguous.csv"].errors()[0];
+    assert_eq!((e.line, e.column), (Some(2), Some(1)));
+    assert_eq!(e.found.as_deref(), Some("`04/05/26`"));
+    // A health app's metadata line above the header is skipped; its times are read.
+    let meta = &got["weights-health-app-metadata-line.csv"].weights;
+    assert_eq!(
+        meta.iter()
+            .map(|w| (w.0, w.1.as_deref()))
+            .collect::<Vec<_>>(),
+        [
+            (d(5, 1), Some("07:12")),
+            (d(5, 2), Some("07:05")),
+            (d(5, 3), Some("07:20"))
+        ]
+    );
+    same(
+        kg("weights-health-app-metadata-line.csv"),
+        &[72.5, 72.3, 72.4],
+    );
     // A row whose cell and unit column disagree is dropped, named at its cell; the others stay.
     same(kg("weights-unit-column-disagrees.csv"), &[72.5, 72.3]);
     let e = &got["weights-unit-column-disagrees.csv"].diags[0];
@@ -331,6 +363,15 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         [45.0, 30.0, 75.0, 60.0]
     );
     assert_eq!(minutes("activity-start-times.csv"), [30.0, 45.0, 32.0]);
+    // `45:00` cannot be 45 hours: the file writes minutes:seconds, `1:05` too.
+    let mmss = minutes("activity-mmss-durations.csv");
+    assert!(
+        mmss.len() == 3
+            && close(mmss[0], 45.0)
+            && close(mmss[1], 32.5)
+            && close(mmss[2], 65.0 / 60.0),
+        "{mmss:?}"
+    );
     assert_eq!(
         got["activity-hms-durations.csv"].activity[1].1,
         "Cycling, moderate"

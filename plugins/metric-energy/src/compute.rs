@@ -98,6 +98,15 @@ const FADE_SHARE: f64 = 1.0;
 /// program choice, to each week of the weekly table (a week's implied intake is read off the
 /// smoothed trend, so it is no single feast either).
 pub(crate) const MAX_SUSTAINED_INTAKE_X_RMR: f64 = 2.5;
+/// Default of `very_low_implied_intake`, kcal/d: a very-low-calorie diet is 800 kcal a day or
+/// less and is used only under medical supervision (NIH/NHLBI 1998 Clinical Guidelines; from
+/// memory; the outcomes module's `very_low_intake` for logged intake has the same default).
+/// An implied intake below it is either a supervised-diet intake in a program that is not one,
+/// or a fall the weigh-ins cannot carry (a step, fluid): in both cases not a figure to print
+/// for the participant, and a matter for a licensed clinician. Applied to the central value,
+/// the figure a report would print (an interval whose upper bound is below it has its centre
+/// below it too).
+pub(crate) const VERY_LOW_IMPLIED_INTAKE: f64 = 800.0;
 /// Smallest BMI a reported steady state or forecast may reach: the linearised energy balance
 /// is not a model of starvation (program choice; BMI 16 is the WHO threshold of severe
 /// thinness).
@@ -111,6 +120,7 @@ struct Settings {
     underreport_sd: f64,
     window_days: u64,
     max_intake_x_rmr: f64,
+    very_low_implied: f64,
     target_loss: f64,
     max_safe_loss: f64,
     floor_female: f64,
@@ -142,6 +152,7 @@ impl Settings {
             window_days: ctx.setting_f64("window_days", 28.0).round().max(1.0) as u64,
             max_intake_x_rmr: ctx
                 .setting_f64("max_sustained_intake_x_rmr", MAX_SUSTAINED_INTAKE_X_RMR),
+            very_low_implied: ctx.setting_f64("very_low_implied_intake", VERY_LOW_IMPLIED_INTAKE),
             target_loss: ctx.setting_f64("target_loss_kg_per_week", 0.5),
             max_safe_loss: ctx.setting_f64("max_safe_loss_kg_per_week", 1.0),
             floor_female: ctx.setting_f64("intake_floor_female", 1200.0),
@@ -342,6 +353,8 @@ struct Person<'a> {
     trend: Trend,
     /// `max_sustained_intake_x_rmr` (see [`MAX_SUSTAINED_INTAKE_X_RMR`]).
     max_intake_x_rmr: f64,
+    /// `very_low_implied_intake` (see [`VERY_LOW_IMPLIED_INTAKE`]), kcal/d.
+    very_low_implied: f64,
     /// The profile notes a pregnancy: weight change then includes the baby, the placenta and
     /// extra fluid, which the adult energy-balance model does not describe.
     pregnant: bool,
@@ -477,15 +490,20 @@ impl Person<'_> {
     }
 
     /// Whether an implied intake `intake` at body weight `bw` on day `d` can be energy balance
-    /// at all, and if not why: below zero (a fall faster than eating nothing at all gives) or
-    /// above the most a person can take in over weeks (`max_sustained_intake_x_rmr` ×
-    /// resting energy). The one test for the window, the weekly table and the plateau table.
+    /// at all, and if not why: below zero (a fall faster than eating nothing at all gives),
+    /// below a very-low-calorie diet (`very_low_implied_intake`) or above the most a person can
+    /// take in over weeks (`max_sustained_intake_x_rmr` × resting energy). The one test for the
+    /// window, the weekly table and the plateau table.
     fn implausible(&self, bw: f64, d: NaiveDate, intake: f64) -> Option<Unexplained> {
         let ceiling = self.max_intake_x_rmr * self.rmr_at(bw, d);
         if self.pregnant {
             Some(Unexplained::Pregnancy)
         } else if intake < 0.0 {
             Some(Unexplained::Fall)
+        } else if intake < self.very_low_implied {
+            Some(Unexplained::VeryLow {
+                floor: self.very_low_implied,
+            })
         } else if intake > ceiling {
             Some(Unexplained::Rise { intake, ceiling })
         } else {
@@ -558,8 +576,31 @@ pub(crate) fn run(
     p.model = HallModel::new(start.bw0, start.fm0, start.rmr0, pal_post);
     p.lin = LinearisedModel::from_baseline(start.bw0, start.fm0, start.rmr0, pal_post);
 
-    let cur = current_state(ctx, &s, &p, &baseline, trend_out.is_none(), start.bw0);
-    if cur.unexplained == Some(Unexplained::Pregnancy) {
+    let mut cur = current_state(ctx, &s, &p, &baseline, trend_out.is_none(), start.bw0);
+    // Someone who left before the period began: the period's activity, energy use and intake
+    // would describe the days after they left (the report shows none of them, and the tidy
+    // metrics, which are these outputs, must not either). Resting energy at the last weight
+    // stays; the weekly table already stops at the withdrawal.
+    let left_before = data.profile.withdrew.filter(|w| *w < ctx.period.from);
+    if let Some(left) = left_before {
+        cur.slope = None;
+        cur.implied = None;
+        cur.unexplained = None;
+        cur.underreport = None;
+        cur.logged = None;
+        out.push_flag(
+            EnergyFlag::LeftBeforePeriod.as_str(),
+            FlagSeverity::Info,
+            format!(
+                "Left the program on {left}, before this period began: this period's activity, \
+                 energy use, logged and implied intake, forecast and options are not estimated \
+                 (they would describe the days after leaving)."
+            ),
+        );
+    }
+    if left_before.is_some() {
+        // Said above; the notes below would be beside the point.
+    } else if cur.unexplained == Some(Unexplained::Pregnancy) {
         out.push_flag(
             EnergyFlag::NotModelled.as_str(),
             FlagSeverity::Info,
@@ -568,12 +609,35 @@ pub(crate) fn run(
              describe, so the intake implied by the weight trend, what it says about the food \
              logs, the forecast and the options are not shown.",
         );
+    } else if let Some(why @ (Unexplained::Fall | Unexplained::VeryLow { .. })) = cur.unexplained {
+        // Too low to print: a very-low-calorie diet's intake in a program that is not one, or
+        // a fall the weigh-ins cannot carry. Either is for a clinician; the message names no
+        // figure, since the report shows it to the participant.
+        let what = match why {
+            Unexplained::VeryLow { floor } => format!(
+                "came down as fast as eating less than {floor:.0} kcal a day would make it, the \
+                 level of a very-low-calorie diet, which is normally followed only under medical \
+                 supervision. Either very little is being eaten, or the fall is not body tissue \
+                 (a change of scale or clothing, a mistyped weigh-in, a shift in body water)"
+            ),
+            _ => "fell faster than eating nothing at all would explain. A change of scale or \
+                  clothing, a mistyped weigh-in or a shift in body water is more likely; a real \
+                  loss this fast (illness, not eating) needs a clinician's look"
+                .to_string(),
+        };
+        out.push_flag(
+            EnergyFlag::VeryLowImpliedIntake.as_str(),
+            FlagSeverity::Clinical,
+            format!(
+                "Over the last {} days the weight trend {what}. Please check the recent \
+                 weigh-ins and review this with a licensed clinician. The intake implied by the \
+                 weight trend, what it says about the food logs, the forecast and the options \
+                 are not shown.",
+                s.window_days
+            ),
+        );
     } else if let Some(why) = cur.unexplained {
         let what = match why {
-            Unexplained::Fall => "fell faster than eating nothing at all would explain. A \
-                                  change of scale or clothing, a mistyped weigh-in or a shift \
-                                  in body water is more likely"
-                .to_string(),
             Unexplained::Rise { intake, ceiling } => format!(
                 "rose faster than food can build body tissue: it would take about {:.0} kcal a \
                  day, more than a person can take in and absorb for weeks on end (about {:.1} \
@@ -582,7 +646,9 @@ pub(crate) fn run(
                 intake.round(),
                 s.max_intake_x_rmr
             ),
-            Unexplained::Pregnancy => unreachable!("handled above"),
+            Unexplained::Pregnancy | Unexplained::Fall | Unexplained::VeryLow { .. } => {
+                unreachable!("handled above")
+            }
         };
         out.push_flag(
             EnergyFlag::UnexplainedWeightChange.as_str(),
@@ -605,7 +671,7 @@ pub(crate) fn run(
             ),
         );
     }
-    push_current(&mut out, &p, &cur);
+    push_current(&mut out, &p, &cur, left_before.is_some());
     let fc = forecast(ctx, &s, &p, &cur, withdrew_cut);
     push_forecast(&mut out, &p, &start, fc);
 
@@ -687,6 +753,7 @@ fn start<'a>(
         lin: LinearisedModel::from_baseline(bw0, fm0, rmr0, s.base_pal),
         trend,
         max_intake_x_rmr: s.max_intake_x_rmr,
+        very_low_implied: s.very_low_implied,
         pregnant: data.profile.flags.iter().any(|f| f == PREGNANCY_FLAG),
     };
     Some((
@@ -733,6 +800,9 @@ struct Current {
 enum Unexplained {
     /// Below zero: a fall faster than eating nothing at all gives.
     Fall,
+    /// From zero up to below `very_low_implied_intake` (kcal/d): a very-low-calorie diet's
+    /// intake, or a fall the weigh-ins cannot carry.
+    VeryLow { floor: f64 },
     /// Above the most a person can take in and absorb over weeks (kcal/d, both).
     Rise { intake: f64, ceiling: f64 },
     /// Any weight change in pregnancy: not adult energy balance (IOM 2009, Weight Gain During
@@ -877,8 +947,11 @@ fn current_state(
 }
 
 /// The current-state scalars.
-fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
+/// `left_before`: the person left before the period began, and only resting energy and the
+/// baseline figures are given.
+fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current, left_before: bool) {
     let implied = cur.implied;
+    let in_program = |x: f64| Some(x).filter(|_| !left_before);
     out.push_scalar(
         names::RMR_KCAL_PER_DAY,
         Some(cur.rmr),
@@ -887,7 +960,7 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
     );
     out.push_scalar(
         names::ACTIVITY_NET_KCAL_PER_DAY,
-        Some(cur.activity),
+        in_program(cur.activity),
         "kcal/d",
         "Logged activity, net of resting ((MET − 1) × kg × h), added to the resting-based total",
     );
@@ -895,9 +968,9 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
     let h = Z_95 * cur.tdee_sd;
     out.push_interval(
         names::TDEE_KCAL_PER_DAY,
-        Some(cur.tdee),
-        Some((cur.tdee - h).max(cur.rmr.min(cur.tdee))),
-        Some(cur.tdee + h),
+        in_program(cur.tdee),
+        in_program((cur.tdee - h).max(cur.rmr.min(cur.tdee))),
+        in_program(cur.tdee + h),
         "kcal/d",
         if implied.is_some() {
             "Total expenditure: implied intake minus the energy stored or released by the weight change"
@@ -919,7 +992,7 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
     );
     out.push_scalar(
         names::LOGGED_DAYS,
-        Some(cur.logged_days as f64),
+        in_program(cur.logged_days as f64),
         "d",
         "Days with a food log",
     );

@@ -102,6 +102,17 @@ impl MetricModule for EnergyModule {
                  implied intake above it is read as a step in the weigh-ins or fluid, not tissue \
                  (about 2.5: Thurber et al. 2019; raise it for a program of endurance athletes)",
             ),
+            SettingSpec::number(
+                "very_low_implied_intake",
+                compute::VERY_LOW_IMPLIED_INTAKE,
+                "kcal/d",
+                0.0,
+                1500.0,
+                "Implied intake below which the figure is withheld and a clinical flag raised: \
+                 a very-low-calorie diet is 800 kcal/d or less and is followed only under \
+                 medical supervision (NIH/NHLBI 1998; from memory); 0 withholds only a fall \
+                 faster than eating nothing",
+            ),
             SettingSpec {
                 name: "window_days".into(),
                 kind: SettingKind::Integer,
@@ -324,6 +335,18 @@ impl MetricModule for EnergyModule {
                 "flag",
                 "",
                 "Weight changed faster than energy balance explains",
+            ),
+            OutputSpec::new(
+                "very_low_implied_intake",
+                "flag",
+                "",
+                "Weight trend implies a very low intake, or an unexplained fast loss",
+            ),
+            OutputSpec::new(
+                "left_before_period",
+                "flag",
+                "",
+                "Left before the period: its energy figures not estimated",
             ),
             OutputSpec::new(
                 "not_modelled",

@@ -114,8 +114,13 @@ code_enum! {
         LogsInconsistentWithTrend = "logs_inconsistent_with_trend" => "Logged intake far from implied",
         /// Logged intake below the intake floor.
         LowLoggedIntake = "low_logged_intake" => "Logged intake below the intake floor",
-        /// Weight changed faster than energy balance explains (a fall beyond a zero intake, a rise beyond the most a person can take in).
+        /// Weight rose faster than energy balance explains (beyond the most a person can take in).
         UnexplainedWeightChange = "unexplained_weight_change" => "Weight changed faster than energy balance explains",
+        /// The weight trend implies an intake below a very-low-calorie diet's, or a fall faster
+        /// than eating nothing explains (for a clinician).
+        VeryLowImpliedIntake = "very_low_implied_intake" => "Weight trend implies a very low intake, or an unexplained fast loss",
+        /// Left the program before the period began: the period's energy figures are not estimated.
+        LeftBeforePeriod = "left_before_period" => "Left before the period: its energy figures not estimated",
         /// The energy-balance estimates are not made for this person (a pregnancy).
         NotModelled = "not_modelled" => "Energy-balance estimates not made (pregnancy)",
     }

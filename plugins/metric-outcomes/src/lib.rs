@@ -61,7 +61,9 @@
 //! * `lab_diabetes_range` (clinical) / `lab_prediabetes_range` (notice): judged on the latest
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
-//!   `fast_loss`, `low_intake` or `very_low_intake` was raised (risk of low blood sugar).
+//!   `fast_loss`, `low_intake` or `very_low_intake` was raised, or the `energy` module (when it
+//!   runs before this one, as in the usual order) raised `very_low_implied_intake`: the weight
+//!   trend implies an intake below a very-low-calorie diet's (risk of low blood sugar).
 //! * `pregnancy` (clinical): the profile carries `pregnant`. Loss targets, the intake floors
 //!   and the energy model are for adults who are not pregnant, so the report holds every
 //!   suggestion and points to a clinician.
@@ -108,6 +110,11 @@ pub const MILESTONES_PERCENT: [f64; 4] = [3.0, 5.0, 7.0, 10.0];
 
 /// Fewest logged intake days in the period before the intake flags are considered.
 pub const MIN_INTAKE_DAYS: usize = 4;
+
+/// The energy module's id and its flag for an implied intake below a very-low-calorie diet's
+/// (read from its output when it ran before this module; this module does not require it).
+const ENERGY_MODULE: &str = "energy";
+const ENERGY_VERY_LOW_IMPLIED_INTAKE: &str = "very_low_implied_intake";
 
 /// Profile flag for people who take glucose-lowering medication.
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
@@ -708,7 +715,7 @@ impl MetricModule for OutcomesModule {
                     OutcomesFlag::MedicationReview.as_str(),
                     "flag",
                     "",
-                    "glucose-lowering medicine with fast loss or low intake",
+                    "glucose-lowering medicine with fast loss, low intake, or a trend that implies a very low intake",
                 ),
             ],
             requires: vec![TREND_MODULE.into()],
@@ -746,8 +753,18 @@ impl MetricModule for OutcomesModule {
         let low_intake = push_intake_flags(&mut output, ctx, data);
         push_low_bmi_flag(&mut output, ctx, bmi1, &w, profile.age_on(ctx.period.to));
         push_lab_flags(&mut output, &labs, profile.sex);
-        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG) && (fast || low_intake) {
-            push_medication_flag(&mut output, fast, low_intake);
+        // The energy module, when it ran before this one, says when the weight trend implies
+        // an intake below a very-low-calorie diet's (its clinical flag): on a glucose-lowering
+        // medicine that is the same risk as low logged intake.
+        let implied_low = ctx.earlier.get(ENERGY_MODULE).is_some_and(|o| {
+            o.flags
+                .iter()
+                .any(|f| f.code == ENERGY_VERY_LOW_IMPLIED_INTAKE)
+        });
+        if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG)
+            && (fast || low_intake || implied_low)
+        {
+            push_medication_flag(&mut output, fast, low_intake, implied_low);
         }
         if profile.flags.iter().any(|f| f == PREGNANCY_FLAG) {
             // Weight-loss targets, the intake floors and the energy model are for adults who
@@ -1258,13 +1275,24 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Sex) {
     }
 }
 
-/// The `medication_review` flag (raised by the caller only with fast loss or low intake).
-fn push_medication_flag(output: &mut ModuleOutput, fast: bool, low_intake: bool) {
-    let why = match (fast, low_intake) {
-        (true, true) => "fast weight loss and low logged intake",
-        (true, false) => "fast weight loss",
-        _ => "low logged intake",
-    };
+/// The `medication_review` flag (raised by the caller only with fast loss, low logged intake,
+/// or a weight trend that implies a very low intake).
+fn push_medication_flag(
+    output: &mut ModuleOutput,
+    fast: bool,
+    low_intake: bool,
+    implied_low: bool,
+) {
+    let mut causes = Vec::new();
+    if fast {
+        causes.push("fast weight loss");
+    }
+    if low_intake {
+        causes.push("low logged intake");
+    } else if implied_low {
+        causes.push("a weight trend that only a very low intake would explain");
+    }
+    let why = causes.join(" and ");
     output.push_flag(
         OutcomesFlag::MedicationReview.as_str(),
         FlagSeverity::Clinical,

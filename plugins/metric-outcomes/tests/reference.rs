@@ -834,8 +834,28 @@ fn medication_review_with_glucose_lowering_medicine() {
         &[(1, 1000.0), (2, 1000.0), (3, 1000.0), (4, 1000.0)],
     );
     assert_eq!(
-        codes(&run(&c(steady), &p2)),
+        codes(&run(&c(steady.clone()), &p2)),
         vec!["low_intake", "medication_review"]
+    );
+    // A weight trend that only a very low intake explains (the energy module's clinical flag,
+    // when it runs first) asks for a review too: the 58 kg woman losing 0.95 kg a week of the
+    // energy module's test got `very_low_implied_intake` but no medication review.
+    let mut with_energy = c(steady);
+    let mut energy = ModuleOutput::default();
+    energy.push_flag(
+        "very_low_implied_intake",
+        FlagSeverity::Clinical,
+        "Over the last 28 days the weight trend came down as fast as …",
+    );
+    with_energy.earlier.insert("energy".into(), energy);
+    let out = run(&with_energy, &p);
+    assert_eq!(codes(&out), vec!["medication_review"]);
+    assert!(
+        out.flags[0]
+            .message
+            .contains("a weight trend that only a very low intake would explain"),
+        "{}",
+        out.flags[0].message
     );
     // Without the profile flag, fast loss raises no medication review.
     p.profile.flags.clear();

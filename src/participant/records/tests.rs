@@ -1018,17 +1018,46 @@ fn activity_or_error(text: &str) -> (Option<Vec<ActivityEntry>>, Vec<Diagnostic>
     (a, diags)
 }
 
+/// An export that writes durations as minutes:seconds (`45:00`, `32:30`): `45:00` read as
+/// hours:minutes is a 45-hour activity, which cannot be, so the file's one-colon durations are
+/// minutes:seconds — all of them, `1:30` too (a minute and a half). Every such row was dropped
+/// as "minutes:seconds or hours:minutes". A file whose one-colon durations all fit both
+/// readings still has them dropped, one warning each.
+#[test]
+fn durations_with_one_colon_are_minutes_and_seconds_when_one_cannot_be_hours() {
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration\n2026-04-01,brisk walk,45:00\n2026-04-02,Yoga,32:30\n2026-04-03,brisk walk,1:30\n2026-04-04,jog,0:20:00\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [45.0, 32.5, 1.5, 20.0]);
+    // 16:00 as hours:minutes is 960 minutes, the most an activity row may hold: both readings
+    // can be, so nothing tells.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration\n2026-04-01,brisk walk,16:00\n2026-04-02,Yoga,30\n",
+    );
+    assert_eq!(a.unwrap().len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(3)));
+    assert!(
+        diags[0]
+            .message
+            .contains("no duration of the file tells which")
+    );
+}
+
 /// Fitness apps write durations as clock times (`00:45:00`) or with units (`45 min`): every
 /// such row was dropped as "not a number".
 #[test]
 fn durations_written_as_clock_times_or_with_units_are_read() {
     let (a, diags) = activity_or_error(
-        "Date,Activity,Duration\n2026-04-01,brisk walk,00:45:00\n2026-04-02,\"Cycling, moderate\",1:10:00\n2026-04-03,brisk walk,45 min\n2026-04-04,jog,1 h 15 min\n2026-04-05,Yoga,1h\n2026-04-06,Yoga,30\n2026-04-07,Yoga,45:00\n",
+        "Date,Activity,Duration\n2026-04-01,brisk walk,00:45:00\n2026-04-02,\"Cycling, moderate\",1:10:00\n2026-04-03,brisk walk,45 min\n2026-04-04,jog,1 h 15 min\n2026-04-05,Yoga,1h\n2026-04-06,Yoga,30\n2026-04-07,Yoga,1:30\n",
     );
     let a = a.unwrap();
     let minutes: Vec<f64> = a.iter().map(|x| x.minutes).collect();
     assert_eq!(minutes, [45.0, 70.0, 45.0, 75.0, 60.0, 30.0]);
-    // `45:00` is 45 minutes or 45 hours: dropped, named.
+    // `1:30` is a minute and a half or an hour and a half, and nothing in the file tells:
+    // dropped, named.
     assert_eq!(diags.len(), 1, "{diags:#?}");
     assert_eq!((diags[0].line, diags[0].column), (Some(8), Some(3)));
     assert!(

@@ -780,10 +780,11 @@ fn a_loss_faster_than_zero_intake_gives_no_implied_intake() {
     ] {
         assert_eq!(out.scalar(name), None, "{name}");
     }
+    // A fall this fast is for a clinician (a step, or a real loss from illness).
     assert!(
-        out.flags
-            .iter()
-            .any(|f| f.code == "unexplained_weight_change"),
+        out.flags.iter().any(|f| f.code == "very_low_implied_intake"
+            && f.severity == FlagSeverity::Clinical
+            && f.message.contains("faster than eating nothing")),
         "{:?}",
         out.flags
     );
@@ -1113,4 +1114,174 @@ fn the_logs_versus_trend_flag_speaks_in_kcal_a_day() {
          day (95 % interval 2265 to 3524). Food logs often differ from what the weight trend \
          shows (Archer et al. 2013); this is worth a conversation about logging, not a judgement."
     );
+}
+
+/// A small woman losing steadily at 0.95 kg a week — under the outcomes module's fast-loss
+/// limit, so nothing else sends her to a clinician — has a weight trend that only an intake of a
+/// few hundred kcal a day explains. Before the very-low guard the report printed that figure
+/// ("2 kcal/day (0–833)" in one case), with the balance, the forecast and the options built on
+/// it, and no flag. Below `very_low_implied_intake` (800 kcal/d, a very-low-calorie diet) the
+/// figure and what is read from it are withheld, in the tidy metrics too (they are these
+/// scalars), and a clinical flag names no figure; the same trend at a slower pace still gives
+/// an implied intake, and the setting at 0 prints the low figure again.
+#[test]
+fn an_implied_intake_below_a_very_low_calorie_diet_is_withheld_and_sent_to_a_clinician() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let run_with = |kg_per_week: f64, settings: serde_json::Value| {
+        let weights: Vec<f64> = (0..n)
+            .map(|i| 58.0 - kg_per_week * i as f64 / 7.0)
+            .collect();
+        let mut data = data(profile(Sex::Female, 152.0, 60.0, enrolled));
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        let mut c = ctx(enrolled, d("2027-06-30"), period, settings);
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, 0.3, 0.02, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    // With the guard off, the low figure that used to be printed.
+    let off = run_with(0.95, serde_json::json!({ "very_low_implied_intake": 0.0 }));
+    let printed = off.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!((0.0..800.0).contains(&printed), "{printed}");
+    let out = run_with(0.95, serde_json::json!({}));
+    for name in [
+        "implied_intake_kcal_per_day",
+        "implied_intake_lower_kcal_per_day",
+        "implied_intake_upper_kcal_per_day",
+        "energy_balance_kcal_per_day",
+        "intake_gap_kcal_per_day",
+        "underreporting_percent",
+        "forecast_weight_at_end_kg",
+        "steady_state_weight_kg",
+    ] {
+        assert_eq!(out.scalar(name), None, "{name}");
+    }
+    let flag = out
+        .flags
+        .iter()
+        .find(|f| f.code == "very_low_implied_intake")
+        .expect("flag");
+    assert_eq!(flag.severity, FlagSeverity::Clinical);
+    assert!(
+        flag.message.contains("less than 800 kcal a day")
+            && flag.message.contains("licensed clinician"),
+        "{}",
+        flag.message
+    );
+    // The message is shown to the participant: it names the limit, not the withheld figure.
+    assert!(
+        !flag.message.contains(&format!("{printed:.0} kcal")),
+        "{}",
+        flag.message
+    );
+    let opt = out.table("options").unwrap();
+    assert_eq!(cell_num(opt, 0, "change_per_day"), None);
+    // No week prints a figure below the limit either.
+    let weekly = out.table("weekly_energy").unwrap();
+    for r in 0..weekly.rows.len() {
+        if let Some(x) = cell_num(weekly, r, "implied_intake_kcal_per_day") {
+            assert!(x >= 800.0, "week {r}: {x}");
+        }
+    }
+    // A slower pace: an ordinary implied intake and no flag.
+    let slower = run_with(0.3, serde_json::json!({}));
+    let i = slower.scalar("implied_intake_kcal_per_day").unwrap();
+    assert!(i >= 800.0, "{i}");
+    assert!(
+        !slower
+            .flags
+            .iter()
+            .any(|f| f.code == "very_low_implied_intake")
+    );
+}
+
+/// Someone who left before the period began, still weighing in and logging afterwards: the
+/// report showed only their resting energy, but the tidy metrics (these outputs) kept the
+/// period's energy use, activity, logs and implied intake — figures for the days after they
+/// left. Now the module gives none of them, says why in an info flag, and keeps resting energy;
+/// leaving inside the period changes nothing.
+#[test]
+fn someone_who_left_before_the_period_gets_no_energy_figures_for_it() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let run = |withdrew: &str| {
+        let weights: Vec<f64> = (0..n).map(|i| 90.0 - 0.3 * i as f64 / 7.0).collect();
+        let mut prof = profile(Sex::Female, 165.0, 45.0, enrolled);
+        prof.withdrew = Some(d(withdrew));
+        let mut data = data(prof);
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        data.intake = daily_logs(enrolled, n, 1700.0);
+        data.activity = (0..n as u64)
+            .map(|i| ActivityEntry {
+                date: day_after(enrolled, i),
+                activity: "17190".into(),
+                minutes: 30.0,
+                met: 3.5,
+                met_source: "Compendium 2011 code 17190".into(),
+                steps: None,
+            })
+            .collect();
+        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, 0.3, 0.02, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    let period_figures = [
+        "activity_net_kcal_per_day",
+        "tdee_kcal_per_day",
+        "logged_intake_kcal_per_day",
+        "logged_days",
+        "implied_intake_kcal_per_day",
+        "implied_intake_lower_kcal_per_day",
+        "energy_balance_kcal_per_day",
+        "intake_gap_kcal_per_day",
+        "underreporting_percent",
+        "forecast_weight_at_end_kg",
+    ];
+    // Left in the middle of the period: the figures are there (the period had days in the
+    // program), and no flag.
+    let inside = run("2027-03-15");
+    for name in &period_figures[..5] {
+        assert!(inside.scalar(name).is_some(), "{name}");
+    }
+    assert!(!inside.flags.iter().any(|f| f.code == "left_before_period"));
+    let out = run("2027-02-14");
+    for name in period_figures {
+        assert_eq!(out.scalar(name), None, "{name}");
+    }
+    let tdee = out.scalar_full("tdee_kcal_per_day").unwrap();
+    assert_eq!((tdee.lower, tdee.upper), (None, None));
+    // Resting energy at the last weight stays (the report shows it).
+    let rmr = out.scalar("rmr_kcal_per_day").unwrap();
+    assert!((1300.0..2000.0).contains(&rmr), "{rmr}");
+    let flag = out
+        .flags
+        .iter()
+        .find(|f| f.code == "left_before_period")
+        .expect("flag");
+    assert_eq!(flag.severity, FlagSeverity::Info);
+    assert!(flag.message.contains("2027-02-14"), "{}", flag.message);
+    // No note about the trend window or the logs for someone who had left.
+    assert!(
+        !out.flags
+            .iter()
+            .any(|f| f.code == "insufficient_data" || f.code == "logs_inconsistent_with_trend"),
+        "{:?}",
+        out.flags
+    );
+    // The options give no amount.
+    let opt = out.table("options").unwrap();
+    assert_eq!(cell_num(opt, 0, "change_per_day"), None);
 }
