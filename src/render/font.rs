@@ -5,8 +5,8 @@
 //! across rendering threads. A PDF embeds only the glyphs it uses: the whole regular face is about
 //! 740 KB, a typical report's subset a few tens of KB.
 
-use std::collections::{BTreeMap, BTreeSet};
-use std::sync::OnceLock;
+use std::collections::{BTreeMap, BTreeSet, HashMap};
+use std::sync::{Mutex, OnceLock};
 
 use allsorts::binary::read::ReadScope;
 use allsorts::font_data::FontData;
@@ -77,6 +77,15 @@ const PDF_TABLES: [u32; 9] = [
 
 static REGULAR: OnceLock<FaceMetrics> = OnceLock::new();
 static BOLD: OnceLock<FaceMetrics> = OnceLock::new();
+
+/// Subsets made so far in this process, by face and character set: reports of one run mostly
+/// use the same few character sets (the regular face of the 48 sample reports has 15), and a
+/// subset is a pure function of them, so a repeated set is copied instead of cut again from
+/// the whole face. Bounded: emptied when it holds [`SUBSET_CACHE_MAX`] sets.
+type SubsetCache = HashMap<(Face, Vec<char>), printpdf::ParsedFont>;
+static SUBSETS: OnceLock<Mutex<SubsetCache>> = OnceLock::new();
+/// At most this many subsets are kept (each a few tens of KB).
+const SUBSET_CACHE_MAX: usize = 64;
 
 /// The parsed face, parsed on first use and then shared.
 pub(crate) fn face(face: Face) -> &'static FaceMetrics {
@@ -197,6 +206,30 @@ impl FaceMetrics {
     /// Glyph ids are renumbered in ascending order of the original ids, so the same character
     /// set always yields the same bytes.
     pub(crate) fn subset(&self, chars: &BTreeSet<char>) -> Result<printpdf::ParsedFont, String> {
+        let key = (self.face, chars.iter().copied().collect::<Vec<char>>());
+        let cache = SUBSETS.get_or_init(|| Mutex::new(HashMap::new()));
+        // A poisoned lock only means another thread panicked while holding it; the map is
+        // still whole (entries are inserted complete), so it is used as it is.
+        if let Some(hit) = cache
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner)
+            .get(&key)
+        {
+            return Ok(hit.clone());
+        }
+        let font = self.make_subset(chars)?;
+        let mut map = cache
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner);
+        if map.len() >= SUBSET_CACHE_MAX {
+            map.clear();
+        }
+        map.insert(key, font.clone());
+        Ok(font)
+    }
+
+    /// [`FaceMetrics::subset`] without the cache.
+    fn make_subset(&self, chars: &BTreeSet<char>) -> Result<printpdf::ParsedFont, String> {
         let mut by_gid: BTreeMap<u16, Vec<char>> = BTreeMap::new();
         for &c in chars {
             let gid = self.glyph(c);
@@ -287,6 +320,12 @@ mod tests {
         assert_eq!(sub.glyph_widths[&new_l], m.advances[old_l as usize]);
         // Same input, same bytes.
         assert_eq!(m.subset(&chars).unwrap().original_bytes, sub.original_bytes);
+        // A repeated set comes from the cache, equal to one made afresh.
+        let again = m.subset(&chars).unwrap();
+        let fresh = m.make_subset(&chars).unwrap();
+        assert_eq!(again.original_bytes, fresh.original_bytes);
+        assert_eq!(again.codepoint_to_glyph, fresh.codepoint_to_glyph);
+        assert_eq!(again.glyph_widths, fresh.glyph_widths);
         // The subset is itself a parseable font.
         let mut w = Vec::new();
         assert!(printpdf::ParsedFont::from_bytes(&sub.original_bytes, 0, &mut w).is_some());

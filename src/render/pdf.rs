@@ -944,6 +944,50 @@ fn rename_font(obj: &mut Object, from: &[u8], to: &[u8]) {
 /// at level 6, where ten thousand reports make the milliseconds count.
 const ZLIB_LEVEL: u32 = 3;
 
+/// `content` compressed at [`ZLIB_LEVEL`].
+fn deflate(content: &[u8]) -> Result<Vec<u8>, PdfError> {
+    let mut enc = flate2::write::ZlibEncoder::new(
+        Vec::with_capacity(content.len() / 3),
+        flate2::Compression::new(ZLIB_LEVEL),
+    );
+    enc.write_all(content)
+        .map_err(|e| PdfError::Write(e.to_string()))?;
+    enc.finish().map_err(|e| PdfError::Write(e.to_string()))
+}
+
+/// Font programs compressed so far in this process: (the program, its compressed bytes) by the
+/// program's blake3 hash. Reports of one run embed the same few subsets over and over
+/// ([`font::FaceMetrics::subset`]); compression is deterministic, so a repeated program is
+/// given the bytes compressed the first time (compared in full, not trusted by hash). Bounded:
+/// emptied when it holds [`PACKED_FONTS_MAX`] programs.
+type PackedFonts = std::collections::HashMap<[u8; 32], (Vec<u8>, Vec<u8>)>;
+static PACKED_FONTS: std::sync::OnceLock<std::sync::Mutex<PackedFonts>> =
+    std::sync::OnceLock::new();
+const PACKED_FONTS_MAX: usize = 64;
+
+/// [`deflate`] of a font program, through [`PACKED_FONTS`].
+fn deflate_font(content: &[u8]) -> Result<Vec<u8>, PdfError> {
+    let key = *blake3::hash(content).as_bytes();
+    let cache = PACKED_FONTS.get_or_init(Default::default);
+    let lock = || {
+        cache
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner)
+    };
+    if let Some((program, packed)) = lock().get(&key)
+        && program.as_slice() == content
+    {
+        return Ok(packed.clone());
+    }
+    let packed = deflate(content)?;
+    let mut map = lock();
+    if map.len() >= PACKED_FONTS_MAX {
+        map.clear();
+    }
+    map.insert(key, (content.to_vec(), packed.clone()));
+    Ok(packed)
+}
+
 fn compress_streams(doc: &mut lopdf::Document) -> Result<(), PdfError> {
     for obj in doc.objects.values_mut() {
         if let Object::Stream(stream) = obj {
@@ -951,13 +995,12 @@ fn compress_streams(doc: &mut lopdf::Document) -> Result<(), PdfError> {
             {
                 continue;
             }
-            let mut enc = flate2::write::ZlibEncoder::new(
-                Vec::with_capacity(stream.content.len() / 3),
-                flate2::Compression::new(ZLIB_LEVEL),
-            );
-            enc.write_all(&stream.content)
-                .map_err(|e| PdfError::Write(e.to_string()))?;
-            let packed = enc.finish().map_err(|e| PdfError::Write(e.to_string()))?;
+            // An embedded TrueType program carries its length as /Length1 (ISO 32000-1, 9.9).
+            let packed = if stream.dict.has(b"Length1") {
+                deflate_font(&stream.content)?
+            } else {
+                deflate(&stream.content)?
+            };
             if packed.len() < stream.content.len() {
                 stream
                     .dict
@@ -1116,6 +1159,24 @@ pub(crate) mod tests {
     use chrono::{Duration, NaiveDate};
 
     const NAME: &str = "Łucja Nguyễn-Øberg";
+
+    #[test]
+    fn a_font_program_compressed_again_comes_from_the_cache_with_the_same_bytes() {
+        let chars: BTreeSet<char> = "Weight trend 0123456789".chars().collect();
+        let program = font::face(Face::Regular)
+            .subset(&chars)
+            .unwrap()
+            .original_bytes;
+        let fresh = deflate(&program).unwrap();
+        assert!(fresh.len() < program.len());
+        assert_eq!(deflate_font(&program).unwrap(), fresh);
+        assert_eq!(deflate_font(&program).unwrap(), fresh);
+        // Another program is not given the first one's bytes.
+        let mut other = program.clone();
+        other[0] ^= 1;
+        assert_eq!(deflate_font(&other).unwrap(), deflate(&other).unwrap());
+        assert_ne!(deflate_font(&other).unwrap(), fresh);
+    }
 
     fn day(i: i64) -> NaiveDate {
         NaiveDate::from_ymd_opt(2025, 3, 1).unwrap() + Duration::days(i)

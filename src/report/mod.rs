@@ -190,29 +190,113 @@ const CHART_H: u32 = 300;
 const NARROW_W: u32 = 380;
 const NARROW_PLOT_H: u32 = 300;
 
+/// A chart as the HTML shows it, and the same markup with the drawing left out.
+struct ChartMarkup {
+    /// The wrapper with both SVG drawings, as the template's `{{chart}}` helper prints it.
+    full: String,
+    /// The same wrapper whose `<svg>` elements keep their opening tag and `<title>` but no
+    /// drawing: what the PDF's reading of the HTML needs ([`pdf_source`]).
+    shell: String,
+}
+
 /// Each chart drawn twice: wide and narrow (legend below the plot in both); the shared style
 /// shows one of them by screen width, so a phone never scrolls sideways. The wrapper's
 /// `data-chart` names the chart for the PDF, which draws it natively from the same description.
-fn svg(name: &str, c: &Chart) -> String {
+fn svg(name: &str, c: &Chart) -> ChartMarkup {
     let mut esc = String::new();
     handlebars::html_escape(name).clone_into(&mut esc);
-    // The charts' labels (site and group names among them) are text from inputs too: the SVG
-    // holds no invisible direction or control character (`render::neutralise`), whatever
-    // plotters' own escaping keeps.
-    let html = format!(
-        "<div class=\"chart\" data-chart=\"{esc}\"><div class=\"chart-wide\">{}</div><div class=\"chart-narrow\">{}</div></div>",
-        chart::to_svg(c, CHART_W, CHART_H),
-        chart::to_svg_narrow(c, NARROW_W, NARROW_PLOT_H)
-    );
-    crate::render::neutralise(&html).into_owned()
+    let wide = chart::to_svg(c, CHART_W, CHART_H);
+    let narrow = chart::to_svg_narrow(c, NARROW_W, NARROW_PLOT_H);
+    let wrap = |wide: &str, narrow: &str| {
+        // The charts' labels (site and group names among them) are text from inputs too: the
+        // SVG holds no invisible direction or control character (`render::neutralise`),
+        // whatever plotters' own escaping keeps.
+        let html = format!(
+            "<div class=\"chart\" data-chart=\"{esc}\"><div class=\"chart-wide\">{wide}</div><div class=\"chart-narrow\">{narrow}</div></div>"
+        );
+        crate::render::neutralise(&html).into_owned()
+    };
+    ChartMarkup {
+        full: wrap(&wide, &narrow),
+        shell: wrap(svg_shell(&wide).as_ref(), svg_shell(&narrow).as_ref()),
+    }
+}
+
+/// An `<svg>` drawing without its drawn content: the opening tag and the `<title>` (the text
+/// alternative) are kept, everything after the title up to the closing tag is left out.
+/// Reading a report's HTML for the PDF never looks inside a chart's `<svg>` (the chart is drawn
+/// natively from its description, see [`from_html`]), except for the first `<title>` of a page
+/// without one in its head, which stays; parsing some 100 KB of SVG per report for nothing was
+/// the largest part of that reading.
+fn svg_shell(svg: &str) -> std::borrow::Cow<'_, str> {
+    const TITLE_END: &str = "</title>";
+    match (svg.find(TITLE_END), svg.rfind("</svg>")) {
+        (Some(t), Some(close)) if svg.starts_with("<svg") && t + TITLE_END.len() <= close => {
+            let keep = t + TITLE_END.len();
+            format!("{}{}", &svg[..keep], &svg[close..]).into()
+        }
+        _ => svg.into(),
+    }
+}
+
+/// The charts drawn, by name.
+fn draw_all(charts: &BTreeMap<String, Chart>) -> BTreeMap<&str, ChartMarkup> {
+    charts
+        .iter()
+        .map(|(name, c)| (name.as_str(), svg(name, c)))
+        .collect()
 }
 
 /// The drawn charts by name, as SVG for the template's `{{chart}}` helper.
-fn svg_map(charts: &BTreeMap<String, Chart>) -> serde_json::Map<String, serde_json::Value> {
-    charts
+fn svg_map(drawn: &BTreeMap<&str, ChartMarkup>) -> serde_json::Map<String, serde_json::Value> {
+    drawn
         .iter()
-        .map(|(name, c)| (name.clone(), svg(name, c).into()))
+        .map(|(name, m)| ((*name).to_string(), m.full.clone().into()))
         .collect()
+}
+
+/// The HTML the PDF is laid out from: the page as the template printed it, with every chart's
+/// drawing replaced by its shell ([`svg_shell`]). The PDF is the same either way: a chart's
+/// wrapper names the chart by `data-chart` and the PDF draws it from its description.
+fn pdf_source(html: &str, drawn: &BTreeMap<&str, ChartMarkup>) -> String {
+    let mut out = html.to_string();
+    for m in drawn.values() {
+        if m.full != m.shell {
+            out = replace_all(&out, &m.full, &m.shell);
+        }
+    }
+    out
+}
+
+/// `hay` with every occurrence of `from` replaced by `to`, left to right as [`str::replace`]
+/// does. A chart's markup is tens of KB, and `str::replace` with a needle that long cost more
+/// than the parsing it saves; here only the needle's first few bytes are searched for and a
+/// candidate is then compared whole.
+fn replace_all(hay: &str, from: &str, to: &str) -> String {
+    let head_len = (0..=from.len().min(64))
+        .rev()
+        .find(|&i| from.is_char_boundary(i))
+        .unwrap_or(0);
+    let head = &from[..head_len];
+    if head.is_empty() {
+        return hay.replace(from, to);
+    }
+    let mut out = String::with_capacity(hay.len());
+    let (mut copied, mut at) = (0, 0);
+    while let Some(i) = hay[at..].find(head) {
+        let start = at + i;
+        if hay[start..].starts_with(from) {
+            out.push_str(&hay[copied..start]);
+            out.push_str(to);
+            copied = start + from.len();
+            at = copied;
+        } else {
+            // The next possible start: one character on.
+            at = start + hay[start..].chars().next().map_or(1, char::len_utf8);
+        }
+    }
+    out.push_str(&hay[copied..]);
+    out
 }
 
 /// The characters of the participant's name the PDF's embedded font cannot show, when there are
@@ -247,7 +331,8 @@ pub fn render_participant(
     if let Some(c) = &report.activity_chart {
         charts.insert("activity".into(), c.clone());
     }
-    let svgs = svg_map(&charts);
+    let drawn = draw_all(&charts);
+    let svgs = svg_map(&drawn);
     let c = &report.ctx;
     // A name the PDF's font cannot show (most CJK, Thai …) would print as empty boxes, or
     // nothing a reader can copy: the PDF names the participant by their id instead (no
@@ -265,7 +350,11 @@ pub fn render_participant(
     } else {
         (templates.render("participant.html", c, svgs)?, None)
     };
-    let pdf_html = pdf_html.as_deref().unwrap_or(&html);
+    let pdf_html = if formats.contains(&Format::Pdf) {
+        pdf_source(pdf_html.as_deref().unwrap_or(&html), &drawn)
+    } else {
+        String::new()
+    };
     let mut out = Vec::new();
     for f in formats {
         match f {
@@ -273,7 +362,7 @@ pub fn render_participant(
             Format::Pdf => out.push((
                 "pdf",
                 from_html::pdf(
-                    pdf_html,
+                    &pdf_html,
                     &templates.source_of("participant.html"),
                     &charts,
                     from_html::Frame {
@@ -301,7 +390,8 @@ pub fn render_group(
     formats: &[Format],
 ) -> Result<Vec<(String, Vec<u8>)>, RenderError> {
     let charts: BTreeMap<String, Chart> = report.charts.iter().cloned().collect();
-    let html = templates.render("group.html", &report.ctx, svg_map(&charts))?;
+    let drawn = draw_all(&charts);
+    let html = templates.render("group.html", &report.ctx, svg_map(&drawn))?;
     let c = &report.ctx;
     let mut out = Vec::new();
     for f in formats {
@@ -310,7 +400,7 @@ pub fn render_group(
             Format::Pdf => out.push((
                 "program.pdf".to_string(),
                 from_html::pdf(
-                    &html,
+                    &pdf_source(&html, &drawn),
                     &templates.source_of("group.html"),
                     &charts,
                     from_html::Frame {
@@ -326,4 +416,112 @@ pub fn render_group(
         }
     }
     Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::render::chart::tests::sample_line;
+
+    fn frame() -> from_html::Frame {
+        from_html::Frame {
+            header: "Program · September 2026".into(),
+            footer: "Private · participant P-1".into(),
+            subject: "Private progress report".into(),
+            author: "cohortpress".into(),
+            period_to: "2026-09-30".into(),
+            id_seed: "prog/2026-09-30/P-1".into(),
+        }
+    }
+
+    #[test]
+    fn a_charts_shell_keeps_the_svg_opening_tag_and_title_and_drops_the_drawing() {
+        let m = svg("weight", &sample_line());
+        let wide = chart::to_svg(&sample_line(), CHART_W, CHART_H);
+        let title_end = wide.find("</title>").unwrap() + "</title>".len();
+        // The wide drawing's shell: its opening tag and title, then the closing tag.
+        let expected_wide = format!("{}</svg>\n", &wide[..title_end]);
+        assert!(wide.ends_with("</svg>\n"));
+        assert!(
+            m.shell.starts_with(&format!(
+                "<div class=\"chart\" data-chart=\"weight\"><div class=\"chart-wide\">{expected_wide}</div><div class=\"chart-narrow\"><svg width=\"380\""
+            )),
+            "{}",
+            m.shell
+        );
+        assert!(m.full.contains(&wide));
+        for drawn in ["<polyline", "<circle", "<rect", "<text"] {
+            assert!(m.full.contains(drawn), "{drawn}");
+            assert!(!m.shell.contains(drawn), "{drawn} in {}", m.shell);
+        }
+        assert_eq!(m.shell.matches("<title>").count(), 2);
+        assert_eq!(m.shell.matches("</svg>").count(), 2);
+        // Not an SVG drawing (no title): left as it is.
+        assert_eq!(svg_shell("<svg></svg>"), "<svg></svg>");
+        assert_eq!(svg_shell("<p>x</title></p>"), "<p>x</title></p>");
+    }
+
+    #[test]
+    fn replace_all_replaces_like_str_replace() {
+        for (hay, from, to) in [
+            ("aXbXc", "X", "yy"),
+            ("XXX", "XX", "-"),
+            ("ab", "abc", "-"),
+            ("", "a", "b"),
+            ("é<div>é<div>é", "<div>é", "<p>"),
+            ("abcabd abcabc", "abcabc", "Z"),
+        ] {
+            assert_eq!(replace_all(hay, from, to), hay.replace(from, to), "{hay}");
+        }
+        // A needle longer than the searched head, with a near miss before the match.
+        let from = format!("<div>{}</div>", "x".repeat(100));
+        let near = format!("<div>{}y</div>", "x".repeat(99));
+        let hay = format!("{near}{from}-{from}");
+        assert_eq!(replace_all(&hay, &from, "C"), format!("{near}C-C"));
+    }
+
+    #[test]
+    fn the_pdf_laid_out_from_the_shells_is_the_pdf_laid_out_from_the_drawings() {
+        let mut charts = BTreeMap::new();
+        charts.insert("weight".to_string(), sample_line());
+        let drawn = draw_all(&charts);
+        let full = &drawn["weight"].full;
+        for page in [
+            // The usual page: a title in the head, the chart in a figure.
+            format!(
+                "<html lang=\"en\"><head><title>Report</title></head><body><h1>Weight</h1>\
+                 <figure>{full}<figcaption>Falling.</figcaption></figure><p>After.</p>\
+                 {full}</body></html>"
+            ),
+            // No title in the head: the first <title> of the page is the chart's own.
+            format!("<html><body><p>Before.</p>{full}<p>After.</p></body></html>"),
+        ] {
+            let shells = pdf_source(&page, &drawn);
+            assert!(
+                shells.len() * 5 < page.len(),
+                "{} of {}",
+                shells.len(),
+                page.len()
+            );
+            let a = from_html::pdf(&page, "t.hbs", &charts, frame()).unwrap();
+            let b = from_html::pdf(&shells, "t.hbs", &charts, frame()).unwrap();
+            assert!(
+                a == b,
+                "the PDFs differ ({} and {} bytes)",
+                a.len(),
+                b.len()
+            );
+        }
+        // A chart where the PDF only takes text fails the same way, naming the same element.
+        let page = format!("<html><body><ul><li>{full}</li></ul></body></html>");
+        let a = from_html::pdf(&page, "t.hbs", &charts, frame()).unwrap_err();
+        let b = from_html::pdf(&pdf_source(&page, &drawn), "t.hbs", &charts, frame()).unwrap_err();
+        assert_eq!(a.to_string(), b.to_string());
+        // The element named keeps its attributes: the chart's text alternative among them.
+        assert!(
+            a.to_string()
+                .contains("<svg aria-label=\"Weight fell from 92"),
+            "{a}"
+        );
+    }
 }
