@@ -545,12 +545,7 @@ impl Staging {
         }
         create_parents(&parent)?;
         let lock_path = parent.join(format!(".{name}.lock"));
-        let lock = File::options()
-            .create(true)
-            .truncate(false)
-            .write(true)
-            .open(&lock_path)
-            .map_err(io(&lock_path))?;
+        let lock = crate::limits::open_lock_file(&lock_path).map_err(io(&lock_path))?;
         match lock.try_lock() {
             Ok(()) => {}
             Err(fs::TryLockError::WouldBlock) => {

@@ -187,12 +187,7 @@ impl Ledger {
             ));
         }
         let lock_path = dir.join(LOCK_FILE);
-        let lock = std::fs::File::options()
-            .create(true)
-            .truncate(false)
-            .write(true)
-            .open(&lock_path)
-            .map_err(|e| io_err(&lock_path, e))?;
+        let lock = crate::limits::open_lock_file(&lock_path).map_err(|e| io_err(&lock_path, e))?;
         match lock.try_lock() {
             Ok(()) => {}
             Err(std::fs::TryLockError::WouldBlock) => {

