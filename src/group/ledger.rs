@@ -30,6 +30,9 @@ use super::{History, Published, ReleaseLine};
 const LEDGER_FILE: &str = "ledger.json";
 const KEY_FILE: &str = "secret.key";
 const LOCK_FILE: &str = "ledger.lock";
+/// No real size limit on the ledger's files: `ledger.json` grows with participants × figures ×
+/// releases (about 45 kB a release for 48 participants), and a ledger is never refused for it.
+const LEDGER_LIMIT: u64 = 1 << 40;
 const FORMAT: u32 = 1;
 
 /// One recorded release.
@@ -201,7 +204,11 @@ impl Ledger {
         }
         let ledger_path = dir.join(LEDGER_FILE);
         let mut new = false;
-        let releases = match std::fs::read(&ledger_path) {
+        // Read like an input (no link followed, regular files only): a FIFO
+        // planted under either name made the run wait for ever, a link to `/dev/zero` read
+        // until memory ran out, and a link to another program's ledger was used as this one.
+        let read = |p: &Path| crate::limits::read_limited(p, LEDGER_LIMIT);
+        let releases = match read(&ledger_path) {
             Ok(bytes) => {
                 let f: LedgerFile =
                     serde_json::from_slice(&bytes).map_err(|e| io_err(&ledger_path, e))?;
@@ -220,7 +227,7 @@ impl Ledger {
             Err(e) => return Err(io_err(&ledger_path, e)),
         };
         let key_path = dir.join(KEY_FILE);
-        let secret = match std::fs::read(&key_path) {
+        let secret = match read(&key_path) {
             Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
             Ok(_) => return Err(io_err(&key_path, "not a 32-byte key")),
             // A ledger whose key is lost cannot link anyone to its releases: with a new key

@@ -465,3 +465,32 @@ fn an_output_folder_inside_the_ledger_folder_is_refused_before_anything_is_writt
     let o = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
     assert_eq!(o.code, 0, "{o:?}");
 }
+
+/// `ledger.json` and `secret.key` were read following links and from anything: a FIFO under
+/// either name made a cron run wait for ever, a link to `/dev/zero` read until memory ran
+/// out, and a link to another program's ledger was used as this one's. They are read like
+/// inputs now: a link or a special file stops the run (exit 6) with the previous output kept.
+#[cfg(unix)]
+#[test]
+fn ledger_files_are_never_read_through_a_link() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    assert_eq!(run(AS_OF).code, 0);
+    let out = t.dir.join("reports");
+    let before = tree_hashes(&out);
+    let ledger = t.dir.join("reports.ledger");
+    let elsewhere = t.dir.parent().unwrap().join("elsewhere");
+    std::fs::create_dir(&elsewhere).unwrap();
+    for name in ["ledger.json", "secret.key"] {
+        std::fs::rename(ledger.join(name), elsewhere.join(name)).unwrap();
+        std::os::unix::fs::symlink(elsewhere.join(name), ledger.join(name)).unwrap();
+        let o = run("2026-12-02");
+        assert_eq!(o.code, 6, "{name}: {o:?}");
+        assert!(o.stderr.contains(name), "{}", o.stderr);
+        assert!(o.stderr.contains("symbolic link"), "{}", o.stderr);
+        assert_eq!(tree_hashes(&out), before, "the previous output is kept");
+        std::fs::remove_file(ledger.join(name)).unwrap();
+        std::fs::rename(elsewhere.join(name), ledger.join(name)).unwrap();
+    }
+    assert_eq!(run("2026-12-02").code, 0);
+}
