@@ -78,6 +78,17 @@ struct LedgerFile {
 
 /// The state folder used when none is given: `<out>.ledger` beside the output folder.
 pub fn default_dir(out_dir: &Path) -> PathBuf {
+    // `--out .` (or `x/..`) has no name of its own until `.` and `..` are resolved against the
+    // working folder: it gave `./reports.ledger`, inside the output folder itself.
+    let resolved;
+    let out_dir = match out_dir.components().next_back() {
+        Some(std::path::Component::Normal(_)) => out_dir,
+        _ => {
+            let cwd = std::env::current_dir().unwrap_or_default();
+            resolved = crate::program::load::lexical(&cwd.join(out_dir));
+            resolved.as_path()
+        }
+    };
     let name = out_dir
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())

@@ -494,3 +494,35 @@ fn ledger_files_are_never_read_through_a_link() {
     }
     assert_eq!(run("2026-12-02").code, 0);
 }
+
+/// `cd` into the output folder and `--out .` (a cron script that changes folder first): the
+/// default ledger, named after the output folder, was `./reports.ledger`, inside the output
+/// folder itself. The run recorded its release there, found the output folder changed at the
+/// swap (exit 6), and every later run refused the folder for the ledger it now held. The
+/// ledger goes beside the folder, as for any other name.
+#[test]
+fn out_dot_puts_the_ledger_beside_the_output_folder_not_inside_it() {
+    let t = ProgramTest::fixture("report-small");
+    let base = t.dir.parent().unwrap();
+    let out = base.join("monthly");
+    std::fs::create_dir(&out).unwrap();
+    let run = || {
+        std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+            .args(["run", &t.dir.to_string_lossy(), "--as-of", AS_OF])
+            .args(["--formats", "html", "--out", "."])
+            .current_dir(&out)
+            .env_clear()
+            .env("PATH", std::env::var("PATH").unwrap_or_default())
+            .env("HOME", base)
+            .output()
+            .unwrap()
+    };
+    let o = run();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(out.join("manifest.json").is_file());
+    assert!(!out.join("reports.ledger").exists());
+    assert!(base.join("monthly.ledger/ledger.json").is_file());
+    // And the next month's run goes ahead the same way.
+    let o = run();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+}
