@@ -37,6 +37,12 @@ pub const MAX_CSV_FIELD_BYTES: usize = 4096;
 /// typo in a year (`start: 1950-01-01`) made a 48-person run take 90 s and 1.5 GB over
 /// decades of empty weeks; such a program is refused at `program.end`.
 pub const MAX_PROGRAM_DAYS: i64 = 3653;
+/// Most `report.group_by` keys. The group phase (complementary suppression and the audit of
+/// every section's counts) grows far faster than the number of sections: measured on a
+/// 12-person demo program, 5 keys took up to 8 s, 6 keys 86 s, and 2,000 keys reached 22 GB
+/// before the system killed the run (a program choice: a sponsor report splits by a few
+/// attributes).
+pub const MAX_GROUP_BY_KEYS: usize = 5;
 /// Most worker threads a run starts (`--jobs`): each is a thread with its own stack, and a
 /// typo (`--jobs 1000000`) made the run spend a minute creating threads until memory ran out,
 /// then abort (common practice: far above the cores of any machine this runs on).
