@@ -545,12 +545,7 @@ impl Staging {
         }
         create_parents(&parent)?;
         let lock_path = parent.join(format!(".{name}.lock"));
-        let lock = File::options()
-            .create(true)
-            .truncate(false)
-            .write(true)
-            .open(&lock_path)
-            .map_err(io(&lock_path))?;
+        let lock = crate::limits::open_lock_file(&lock_path).map_err(io(&lock_path))?;
         match lock.try_lock() {
             Ok(()) => {}
             Err(fs::TryLockError::WouldBlock) => {
@@ -575,7 +570,7 @@ impl Staging {
             if fs::symlink_metadata(&out_dir).is_err() {
                 fs::rename(&previous, &out_dir).map_err(io(&out_dir))?;
             } else {
-                remove_ours(&previous)?;
+                remove_ours(&previous, MANIFEST)?;
             }
         }
         check_replaceable(&out_dir, target)?;
@@ -593,7 +588,7 @@ impl Staging {
                     dir.display()
                 )));
             }
-            remove_ours(&dir)?;
+            remove_ours(&dir, STAGING_MARKER)?;
         }
         create_dir(&dir, access)?;
         new_file(&dir.join(STAGING_MARKER), access)?;
@@ -761,7 +756,7 @@ impl Staging {
         let removed = if was_empty {
             fs::remove_dir(&self.previous).map_err(io(&self.previous))
         } else {
-            remove_ours(&self.previous)
+            remove_ours(&self.previous, MANIFEST)
         };
         if fs::symlink_metadata(&self.previous).is_ok()
             && let Err(e) = removed
@@ -778,23 +773,54 @@ impl Drop for Staging {
     /// folder is removed, and the previous output was never touched.
     fn drop(&mut self) {
         if !self.committed {
-            let _ = remove_ours(&self.dir);
+            let _ = remove_ours(&self.dir, STAGING_MARKER);
         }
     }
 }
 
+/// The file that makes an output folder recognisably ours.
+const MANIFEST: &str = "manifest.json";
+
 /// Removes a folder this tool made (staging or a previous output). Folders made read-only
 /// after the fact (by a user or a backup tool) are made writable for the owner first; links
 /// inside are removed, never followed.
-fn remove_ours(dir: &Path) -> Result<(), StagingError> {
-    match fs::remove_dir_all(dir) {
+///
+/// `mark` (the manifest of a previous output, the marker of a staging folder) goes last, just
+/// before the folder itself: a removal stopped part way (the process killed, a power cut, a
+/// file that cannot be removed) leaves a folder that still shows it is ours, which the next run
+/// finishes removing. Removed in any order, a `.NAME.previous` that had lost its manifest
+/// was "not a cohortpress output", and every later run refused to start until someone removed
+/// it by hand.
+fn remove_ours(dir: &Path, mark: &str) -> Result<(), StagingError> {
+    match remove_marked_last(dir, mark) {
         Ok(()) => Ok(()),
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound && !dir.exists() => Ok(()),
         Err(_) => {
             make_owner_writable(dir);
-            fs::remove_dir_all(dir).map_err(io(dir))
+            remove_marked_last(dir, mark).map_err(io(dir))
         }
     }
+}
+
+fn remove_marked_last(dir: &Path, mark: &str) -> std::io::Result<()> {
+    for entry in fs::read_dir(dir)? {
+        let entry = entry?;
+        if entry.file_name() == mark {
+            continue;
+        }
+        // `file_type` does not follow links: a link is removed as a file.
+        if entry.file_type()?.is_dir() {
+            fs::remove_dir_all(entry.path())?;
+        } else {
+            fs::remove_file(entry.path())?;
+        }
+    }
+    match fs::remove_file(dir.join(mark)) {
+        Ok(()) => {}
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+        Err(e) => return Err(e),
+    }
+    fs::remove_dir(dir)
 }
 
 #[cfg(unix)]
@@ -905,4 +931,107 @@ pub fn write_new_file(
         .and_then(|mut f| f.write_all(bytes))
         .map_err(|e| (path.clone(), e))?;
     Ok(true)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Clears the immutable flag on drop, so the test folder can be removed whatever happens.
+    struct Immutable(PathBuf);
+
+    impl Drop for Immutable {
+        fn drop(&mut self) {
+            let _ = std::process::Command::new("chattr")
+                .arg("-i")
+                .arg(&self.0)
+                .status();
+        }
+    }
+
+    /// An output of 60 top-level folders with one file each, and its manifest.
+    fn write_output(target: &OutputTarget) {
+        let staging = Staging::begin(target, Access::Owner).unwrap();
+        for i in 0..60 {
+            staging
+                .write(&format!("f{i:02}/report.html"), b"x")
+                .unwrap();
+        }
+        let outputs: Vec<_> = staging
+            .files()
+            .iter()
+            .map(|f| serde_json::json!({ "path": f.path }))
+            .collect();
+        let manifest = serde_json::json!({
+            "tool": "cohortpress test",
+            "program_id": "p",
+            "outputs": outputs,
+        });
+        staging
+            .write(MANIFEST, manifest.to_string().as_bytes())
+            .unwrap();
+        staging.commit().unwrap();
+    }
+
+    /// A run removes the previous output after the swap. Removed in the order the folder
+    /// lists, a removal stopped part way (the process killed, a power cut, a file it cannot
+    /// remove) could leave `.out.previous` without its manifest: "not a cohortpress output",
+    /// and every later run refused to start until someone removed it by hand. A file made
+    /// immutable (`chattr +i`: root only, skipped otherwise) in a folder listed after the
+    /// manifest stops the removal part way; the manifest must still be there, and the next
+    /// run must finish the removal.
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn a_removal_stopped_part_way_leaves_a_previous_output_that_is_still_ours() {
+        let tmp = tempfile::tempdir().unwrap();
+        let program = tmp.path().join("program");
+        fs::create_dir_all(program.join("participants")).unwrap();
+        let out = tmp.path().join("out");
+        let target = OutputTarget {
+            dir: out.clone(),
+            program_root: program,
+            participants_dir: "participants",
+            program_id: "p".into(),
+            templates: None,
+            scope: OutputScope::Complete,
+            named_by: "--out",
+        };
+        write_output(&target);
+        let order: Vec<String> = fs::read_dir(&out)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        let at = order.iter().position(|n| n == MANIFEST).unwrap();
+        let Some(after) = order.get(at + 1) else {
+            eprintln!("skipped: the manifest is listed last here");
+            return;
+        };
+        let stuck = out.join(after).join("report.html");
+        let made = std::process::Command::new("chattr")
+            .arg("+i")
+            .arg(&stuck)
+            .status()
+            .is_ok_and(|s| s.success());
+        if !made {
+            eprintln!("skipped: chattr +i needs root and a file system that supports it");
+            return;
+        }
+        let guard = Immutable(
+            tmp.path()
+                .join(".out.previous")
+                .join(after)
+                .join("report.html"),
+        );
+        // The swap goes through; the previous copy cannot be removed in full.
+        write_output(&target);
+        let previous = tmp.path().join(".out.previous");
+        assert!(previous.join(after).join("report.html").exists());
+        assert!(previous.join(MANIFEST).is_file(), "the manifest goes last");
+        assert!(is_our_folder(&previous));
+        drop(guard);
+        // The next run finishes the removal.
+        write_output(&target);
+        assert!(!previous.exists());
+        assert_eq!(fs::read_dir(&out).unwrap().count(), 61);
+    }
 }

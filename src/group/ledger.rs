@@ -30,6 +30,9 @@ use super::{History, Published, ReleaseLine};
 const LEDGER_FILE: &str = "ledger.json";
 const KEY_FILE: &str = "secret.key";
 const LOCK_FILE: &str = "ledger.lock";
+/// No real size limit on the ledger's files: `ledger.json` grows with participants × figures ×
+/// releases (about 45 kB a release for 48 participants), and a ledger is never refused for it.
+const LEDGER_LIMIT: u64 = 1 << 40;
 const FORMAT: u32 = 1;
 
 /// One recorded release.
@@ -75,6 +78,17 @@ struct LedgerFile {
 
 /// The state folder used when none is given: `<out>.ledger` beside the output folder.
 pub fn default_dir(out_dir: &Path) -> PathBuf {
+    // `--out .` (or `x/..`) has no name of its own until `.` and `..` are resolved against the
+    // working folder: it gave `./reports.ledger`, inside the output folder itself.
+    let resolved;
+    let out_dir = match out_dir.components().next_back() {
+        Some(std::path::Component::Normal(_)) => out_dir,
+        _ => {
+            let cwd = std::env::current_dir().unwrap_or_default();
+            resolved = crate::program::load::lexical(&cwd.join(out_dir));
+            resolved.as_path()
+        }
+    };
     let name = out_dir
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
@@ -187,12 +201,7 @@ impl Ledger {
             ));
         }
         let lock_path = dir.join(LOCK_FILE);
-        let lock = std::fs::File::options()
-            .create(true)
-            .truncate(false)
-            .write(true)
-            .open(&lock_path)
-            .map_err(|e| io_err(&lock_path, e))?;
+        let lock = crate::limits::open_lock_file(&lock_path).map_err(|e| io_err(&lock_path, e))?;
         match lock.try_lock() {
             Ok(()) => {}
             Err(std::fs::TryLockError::WouldBlock) => {
@@ -206,7 +215,11 @@ impl Ledger {
         }
         let ledger_path = dir.join(LEDGER_FILE);
         let mut new = false;
-        let releases = match std::fs::read(&ledger_path) {
+        // Read like an input (no link followed, regular files only): a FIFO
+        // planted under either name made the run wait for ever, a link to `/dev/zero` read
+        // until memory ran out, and a link to another program's ledger was used as this one.
+        let read = |p: &Path| crate::limits::read_limited(p, LEDGER_LIMIT);
+        let releases = match read(&ledger_path) {
             Ok(bytes) => {
                 let f: LedgerFile =
                     serde_json::from_slice(&bytes).map_err(|e| io_err(&ledger_path, e))?;
@@ -225,7 +238,7 @@ impl Ledger {
             Err(e) => return Err(io_err(&ledger_path, e)),
         };
         let key_path = dir.join(KEY_FILE);
-        let secret = match std::fs::read(&key_path) {
+        let secret = match read(&key_path) {
             Ok(b) if b.len() == 32 => b.try_into().expect("32 bytes"),
             Ok(_) => return Err(io_err(&key_path, "not a 32-byte key")),
             // A ledger whose key is lost cannot link anyone to its releases: with a new key

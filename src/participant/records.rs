@@ -1302,6 +1302,20 @@ impl SameValue for LabResult {
     }
 }
 
+/// A cell's value for a message's "found": the text as written, and what it was read as when
+/// that is not the same number (`20 h` is "`20 h` (read as 1200 minutes)"); never the number
+/// alone, which may be in no file (`99999999999999999` prints as `100000000000000000`).
+fn as_written(c: &Cells<'_>, col: &str, value: f64, unit: &str) -> String {
+    let raw = c.text(col).unwrap_or_default().trim();
+    if raw.is_empty() {
+        format!("`{value}`")
+    } else if raw.parse::<f64>().is_ok_and(|x| x == value) {
+        format!("`{raw}`")
+    } else {
+        format!("`{raw}` (read as {value} {unit})")
+    }
+}
+
 /// Parses `activity.csv`: codes from the activity table, or any label with an explicit `met`.
 pub fn parse_activity(
     text: &str,
@@ -1404,7 +1418,7 @@ pub fn parse_activity(
             d.push(
                 c.warn("minutes", "implausible minutes; the row is dropped")
                     .expected(format!("0 to {MAX_ACTIVITY_MINUTES} minutes"))
-                    .found(format!("`{minutes}`"))
+                    .found(as_written(c, "minutes", minutes, "minutes"))
                     .hint("one row is one activity on one day; check for a typing error or hours written as minutes"),
             );
             return None;
@@ -1419,7 +1433,7 @@ pub fn parse_activity(
                                 "a MET value from {} to {}",
                                 MET_RANGE.0, MET_RANGE.1
                             ))
-                            .found(format!("`{m}`")),
+                            .found(as_written(c, "met", m, "MET")),
                     );
                     return None;
                 }
@@ -1443,7 +1457,7 @@ pub fn parse_activity(
                 d.push(
                     c.warn("steps", "implausible step count; the steps are ignored")
                         .expected("0 to 100000 steps")
-                        .found(format!("`{s}`")),
+                        .found(as_written(c, "steps", s, "steps")),
                 );
                 None
             }

@@ -412,3 +412,40 @@ fn an_enrolment_more_than_a_year_before_the_program_starts_is_an_error_at_its_li
     assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
     assert_eq!(lp.data.unwrap().profile.enrolled.to_string(), "2025-04-01");
 }
+
+#[test]
+fn an_enrolment_after_the_program_ends_is_an_error_at_its_line() {
+    // `2062-04-01` for `2026-04-01` (program April to September 2026): every row of every file
+    // was dropped as "before enrolment", the participant had no report and was left out of
+    // the group figures, and the run ended with exit 1 (warnings) as if nothing were wrong.
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights: &[u8] = b"date,weight,unit\n2026-04-02,80.1,kg\n2026-04-09,79.8,kg\n";
+    let late = PROFILE.replace("enrolled: 2026-04-01", "enrolled: 2062-04-01");
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[("profile.yaml", late.as_bytes()), ("weights.csv", weights)],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_none(), "the participant is not used");
+    let e = lp
+        .diagnostics
+        .iter()
+        .find(|d| d.severity == crate::diag::Severity::Error)
+        .expect("an error");
+    assert_eq!(
+        (e.file.as_str(), e.line),
+        ("participants/P1/profile.yaml", Some(5))
+    );
+    assert_eq!(
+        e.message,
+        "enrolment date 2062-04-01 is after the program ends (2026-09-30); the participant \
+         cannot be used"
+    );
+    // Enrolled on the last day: read.
+    let fine = PROFILE.replace("enrolled: 2026-04-01", "enrolled: 2026-09-30");
+    fs::write(dir.path.join("profile.yaml"), fine).unwrap();
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.is_some(), "{:#?}", lp.diagnostics);
+}

@@ -303,6 +303,22 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 .hint("the ledger must never sit among the inputs; remove the key to keep it beside the output as `<out>.ledger`"),
         );
     }
+    let max_keys = crate::limits::MAX_GROUP_BY_KEYS;
+    if def.report.group_by.len() > max_keys {
+        out.push(
+            err(
+                "report.group_by",
+                format!(
+                    "{} group_by keys, more than the {max_keys} a group report can split by",
+                    def.report.group_by.len()
+                ),
+            )
+            .field(format!("report.group_by[{max_keys}]"))
+            .expected(format!("at most {max_keys} group attributes, such as `site` and `team`"))
+            .found(def.report.group_by.join(", "))
+            .hint("keep the attributes the sponsor needs; each one adds a section per value, and the privacy audit of them all grows far faster than their number"),
+        );
+    }
     for (i, g) in def.report.group_by.iter().enumerate() {
         if g.trim().is_empty() {
             out.push(
@@ -914,6 +930,32 @@ report:
         assert_eq!(e[0].field.as_deref(), Some("report.group_by[2]"));
         assert_eq!(e[0].message, "`site` is listed twice (also at position 1)");
         let ok = text.replace(", ' site'", "");
+        assert!(parse_program(root(), &ok).is_ok());
+    }
+
+    #[test]
+    fn more_group_by_keys_than_the_limit_is_an_error_at_the_key() {
+        // 2,000 keys (a generated or pasted list) made the group phase of a 12-person run grow
+        // to 22 GB before the system killed it; 6 keys already took 86 s.
+        let keys: Vec<String> = (0..6).map(|i| format!("k{i}")).collect();
+        let text = format!(
+            "format_version: 1
+program: {{ id: demo, title: Demo, start: 2026-04-01, end: 2026-09-30 }}
+modules: [ {{id: trend}} ]
+report:
+  group_by: [{}]
+",
+            keys.join(", ")
+        );
+        let e = parse_program(root(), &text).unwrap_err();
+        assert_eq!(e.len(), 1, "{e:#?}");
+        assert_eq!(e[0].field.as_deref(), Some("report.group_by[5]"));
+        assert_eq!(e[0].line, Some(5), "{e:#?}");
+        assert_eq!(
+            e[0].message,
+            "6 group_by keys, more than the 5 a group report can split by"
+        );
+        let ok = text.replace(", k5", "");
         assert!(parse_program(root(), &ok).is_ok());
     }
 

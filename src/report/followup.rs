@@ -367,7 +367,8 @@ pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext 
 /// The follow-up list as CSV: one row per flag, values in metric units with the unit in the
 /// column name.
 pub fn csv(plan: &Scope<'_>, records: &[FollowupRecord]) -> Result<Vec<u8>, RenderError> {
-    let mut w = csv::Writer::from_writer(Vec::new());
+    // Through the guarded writer, as every CSV: a name from a profile can begin like a formula.
+    let mut w = crate::csv_out::Writer::from_writer(Vec::new());
     let io = |e: csv::Error| RenderError::Template(format!("follow-up CSV: {e}"));
     w.write_record([
         "participant_id",

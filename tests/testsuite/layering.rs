@@ -193,3 +193,26 @@ fn same_layer_edges_have_no_cycle() {
         );
     }
 }
+
+/// Every CSV the tool writes goes through `csv_out::Writer`, which quotes text that begins like
+/// a spreadsheet formula: the follow-up list's CSV used the `csv` crate's writer directly and
+/// wrote a participant's name raw.
+#[test]
+fn only_csv_out_makes_a_csv_writer() {
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("src");
+    let mut found = Vec::new();
+    for entry in walkdir::WalkDir::new(&src) {
+        let entry = entry.unwrap();
+        let p = entry.path();
+        if p.extension().is_none_or(|e| e != "rs") || p.ends_with("csv_out.rs") {
+            continue;
+        }
+        let text = std::fs::read_to_string(p).unwrap();
+        for (i, line) in text.lines().enumerate() {
+            if line.contains("csv::Writer") || line.contains("csv::WriterBuilder") {
+                found.push(format!("{}:{}", p.display(), i + 1));
+            }
+        }
+    }
+    assert!(found.is_empty(), "{found:?}");
+}

@@ -465,3 +465,64 @@ fn an_output_folder_inside_the_ledger_folder_is_refused_before_anything_is_writt
     let o = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
     assert_eq!(o.code, 0, "{o:?}");
 }
+
+/// `ledger.json` and `secret.key` were read following links and from anything: a FIFO under
+/// either name made a cron run wait for ever, a link to `/dev/zero` read until memory ran
+/// out, and a link to another program's ledger was used as this one's. They are read like
+/// inputs now: a link or a special file stops the run (exit 6) with the previous output kept.
+#[cfg(unix)]
+#[test]
+fn ledger_files_are_never_read_through_a_link() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    assert_eq!(run(AS_OF).code, 0);
+    let out = t.dir.join("reports");
+    let before = tree_hashes(&out);
+    let ledger = t.dir.join("reports.ledger");
+    let elsewhere = t.dir.parent().unwrap().join("elsewhere");
+    std::fs::create_dir(&elsewhere).unwrap();
+    for name in ["ledger.json", "secret.key"] {
+        std::fs::rename(ledger.join(name), elsewhere.join(name)).unwrap();
+        std::os::unix::fs::symlink(elsewhere.join(name), ledger.join(name)).unwrap();
+        let o = run("2026-12-02");
+        assert_eq!(o.code, 6, "{name}: {o:?}");
+        assert!(o.stderr.contains(name), "{}", o.stderr);
+        assert!(o.stderr.contains("symbolic link"), "{}", o.stderr);
+        assert_eq!(tree_hashes(&out), before, "the previous output is kept");
+        std::fs::remove_file(ledger.join(name)).unwrap();
+        std::fs::rename(elsewhere.join(name), ledger.join(name)).unwrap();
+    }
+    assert_eq!(run("2026-12-02").code, 0);
+}
+
+/// `cd` into the output folder and `--out .` (a cron script that changes folder first): the
+/// default ledger, named after the output folder, was `./reports.ledger`, inside the output
+/// folder itself. The run recorded its release there, found the output folder changed at the
+/// swap (exit 6), and every later run refused the folder for the ledger it now held. The
+/// ledger goes beside the folder, as for any other name.
+#[test]
+fn out_dot_puts_the_ledger_beside_the_output_folder_not_inside_it() {
+    let t = ProgramTest::fixture("report-small");
+    let base = t.dir.parent().unwrap();
+    let out = base.join("monthly");
+    std::fs::create_dir(&out).unwrap();
+    let run = || {
+        std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+            .args(["run", &t.dir.to_string_lossy(), "--as-of", AS_OF])
+            .args(["--formats", "html", "--out", "."])
+            .current_dir(&out)
+            .env_clear()
+            .env("PATH", std::env::var("PATH").unwrap_or_default())
+            .env("HOME", base)
+            .output()
+            .unwrap()
+    };
+    let o = run();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(out.join("manifest.json").is_file());
+    assert!(!out.join("reports.ledger").exists());
+    assert!(base.join("monthly.ledger/ledger.json").is_file());
+    // And the next month's run goes ahead the same way.
+    let o = run();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+}

@@ -1420,3 +1420,24 @@ fn summary_rows_marked_in_another_column_are_not_measurements() {
         [30.0]
     );
 }
+
+/// "Found" quotes the cell as written. It quoted the number read from it: `20 h` of minutes
+/// was "found: `1200`", `99999999999999999` steps "found: `100000000000000000`" (a value in
+/// no file), `7.50` MET "`7.5`".
+#[test]
+fn out_of_range_activity_values_are_quoted_as_written() {
+    let (v, diags) = activity(
+        "date,activity,minutes,met,steps\n2026-04-01,walking,20 h,,\n2026-04-02,walking,30,,99999999999999999\n2026-04-03,odd,30,40.50,\n",
+    );
+    assert_eq!(v.len(), 1, "{diags:#?}");
+    let found: Vec<&str> = diags.iter().filter_map(|d| d.found.as_deref()).collect();
+    assert_eq!(
+        found,
+        [
+            "`20 h` (read as 1200 minutes)",
+            "`99999999999999999`",
+            "`40.50`",
+        ],
+        "{diags:#?}"
+    );
+}
