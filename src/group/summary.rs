@@ -968,6 +968,24 @@ pub(super) fn build(
         let mut gave_up: BTreeSet<String> = BTreeSet::new();
         loop {
             ranges = table.apply_with_ranges(min);
+            if table.exhausted() {
+                // Every count is hidden and nothing later can show one again.
+                tracing::warn!(
+                    "group report: the small-cell check of the counts reached its work limit \
+                     (the groups are split too finely); every count in the group report is \
+                     withheld"
+                );
+                audit_notes.push(AuditNote {
+                    section: program.label.clone(),
+                    figure: "every count".into(),
+                    rule: "Withheld: the groups are split so finely that the check that no \
+                           small group's count can be worked out from the others could not \
+                           finish within its work limit; report fewer or larger groups \
+                           (fewer group_by keys) to see figures"
+                        .into(),
+                });
+                break;
+            }
             for &c in &no_range {
                 ranges[c] = None;
             }
