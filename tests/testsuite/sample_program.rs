@@ -105,6 +105,35 @@ fn sample_program_runs_end_to_end() {
     let problems = crate::datapackage::check_package(&reports.join("metrics"));
     assert!(problems.is_empty(), "{problems:#?}");
 
+    // What the descriptor says a column is matches what its numbers are (a researcher reads
+    // the descriptor, not the code).
+    let package: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(reports.join("metrics/datapackage.json")).unwrap(),
+    )
+    .unwrap();
+    let described = |name: &str| -> String {
+        package["resources"][0]["schema"]["fields"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["name"] == name)
+            .unwrap_or_else(|| panic!("no field {name}"))["description"]
+            .as_str()
+            .unwrap()
+            .to_string()
+    };
+    // The sample's September is the program's last month, so the forecast runs the
+    // default 84 days (forecast_min_days) past it, to 23 Dec 2026, not to the program's end
+    // (30 Sep 2026); the participant report says so, and the column's description must too.
+    let sg001 = std::fs::read_to_string(reports.join("participants/SG-001.html")).unwrap();
+    assert!(sg001.contains("23 Dec 2026"), "SG-001's forecast horizon");
+    let forecast = described("energy.forecast_weight_at_end_kg");
+    assert!(
+        forecast.contains("forecast_min_days after the period's end")
+            && !forecast.starts_with("Model weight at program end"),
+        "{forecast}"
+    );
+
     // Module tables in long form: plateaus are assessed, and the sample's adherence drift
     // (by design the commonest story in it) is the commonest decided reading: intake drift is
     // called only when the 95 % interval of the change in implied intake excludes zero, and
