@@ -133,6 +133,29 @@ fn sample_program_runs_end_to_end() {
             && !forecast.starts_with("Model weight at program end"),
         "{forecast}"
     );
+    // The current weight is the trend at the last weigh-in in the period, not at the period's
+    // end: for someone whose last weigh-in is days before the end, the outcomes column equals
+    // the trend module's "on the last day with a weigh-in".
+    let before_end = rows
+        .iter()
+        .find(|r| {
+            r["outcomes.current_weight_source"] == "trend"
+                && r["trend.days_since_last_weigh_in"]
+                    .parse::<f64>()
+                    .is_ok_and(|d| d >= 3.0)
+        })
+        .expect("someone whose last weigh-in is days before the period's end");
+    assert_eq!(
+        before_end["outcomes.current_weight_kg"], before_end["trend.current_weight_kg"],
+        "{}",
+        before_end["participant_id"]
+    );
+    let current = described("outcomes.current_weight_kg");
+    assert!(
+        current.contains("at the last weigh-in in the period")
+            && !current.contains("end of the period"),
+        "{current}"
+    );
 
     // Module tables in long form: plateaus are assessed, and the sample's adherence drift
     // (by design the commonest story in it) is the commonest decided reading: intake drift is
