@@ -150,6 +150,32 @@ fn sample_program_runs_end_to_end() {
         "{}",
         before_end["participant_id"]
     );
+    // SG-018 left on 27 July, before September began: their report shows only the resting
+    // energy, and their tidy row gives no period activity or total energy use either (before,
+    // "0" kcal/day of activity and a resting × activity-level total of the days after they
+    // left, which a researcher's September means would have counted).
+    let left = rows
+        .iter()
+        .find(|r| r["participant_id"] == "SG-018")
+        .expect("SG-018");
+    for col in [
+        "energy.activity_net_kcal_per_day",
+        "energy.tdee_kcal_per_day",
+        "energy.tdee_kcal_per_day_lower95",
+        "energy.tdee_kcal_per_day_upper95",
+    ] {
+        assert_eq!(left[col], "", "SG-018 {col}");
+    }
+    assert!(
+        left["energy.rmr_kcal_per_day"]
+            .parse::<f64>()
+            .is_ok_and(|v| v > 1000.0),
+        "SG-018 resting energy `{}`",
+        left["energy.rmr_kcal_per_day"]
+    );
+    let sg018 = std::fs::read_to_string(reports.join("participants/SG-018.html")).unwrap();
+    assert!(sg018.contains("before this period began"));
+    assert!(!sg018.contains("Total energy use per day"));
     let current = described("outcomes.current_weight_kg");
     assert!(
         current.contains("at the last weigh-in in the period")

@@ -605,7 +605,11 @@ pub(crate) fn run(
             ),
         );
     }
-    push_current(&mut out, &p, &cur);
+    // Someone who left before the period began has no days in it: the period's logged activity
+    // (0) and the total built on it would describe the days after they left, so neither is
+    // given, as their report shows neither (resting energy, at their last weight, still is).
+    let left_before = data.profile.withdrew.is_some_and(|w| w < ctx.period.from);
+    push_current(&mut out, &p, &cur, left_before);
     let fc = forecast(ctx, &s, &p, &cur, withdrew_cut);
     push_forecast(&mut out, &p, &start, fc);
 
@@ -877,8 +881,9 @@ fn current_state(
 }
 
 /// The current-state scalars.
-fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
+fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current, left_before: bool) {
     let implied = cur.implied;
+    let in_period = |v: f64| Some(v).filter(|_| !left_before);
     out.push_scalar(
         names::RMR_KCAL_PER_DAY,
         Some(cur.rmr),
@@ -887,7 +892,7 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
     );
     out.push_scalar(
         names::ACTIVITY_NET_KCAL_PER_DAY,
-        Some(cur.activity),
+        in_period(cur.activity),
         "kcal/d",
         "Logged activity, net of resting ((MET − 1) × kg × h), added to the resting-based total",
     );
@@ -895,9 +900,9 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current) {
     let h = Z_95 * cur.tdee_sd;
     out.push_interval(
         names::TDEE_KCAL_PER_DAY,
-        Some(cur.tdee),
-        Some((cur.tdee - h).max(cur.rmr.min(cur.tdee))),
-        Some(cur.tdee + h),
+        in_period(cur.tdee),
+        in_period((cur.tdee - h).max(cur.rmr.min(cur.tdee))),
+        in_period(cur.tdee + h),
         "kcal/d",
         if implied.is_some() {
             "Total expenditure: implied intake minus the energy stored or released by the weight change"
