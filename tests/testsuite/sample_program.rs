@@ -176,6 +176,48 @@ fn sample_program_runs_end_to_end() {
     let sg018 = std::fs::read_to_string(reports.join("participants/SG-018.html")).unwrap();
     assert!(sg018.contains("before this period began"));
     assert!(!sg018.contains("Total energy use per day"));
+    // weekly.csv's last week of September (Mon 28 Sep) covers 3 days of the period: SG-001's
+    // weigh-in count there is over 3 days, not 7, as adherence's weekly table says; the
+    // descriptor must tell a researcher averaging weekly counts that weeks can be partial.
+    let (_, tables_rows) = read_csv(&reports.join("metrics/tables.csv"));
+    let week_row = tables_rows
+        .iter()
+        .find(|t| {
+            t["participant_id"] == "SG-001"
+                && t["table"] == "weekly"
+                && t["column"] == "week_start"
+                && t["value"] == "2026-09-28"
+        })
+        .expect("SG-001's week of 28 Sep")["row"]
+        .clone();
+    let covered = tables_rows
+        .iter()
+        .find(|t| {
+            t["participant_id"] == "SG-001"
+                && t["table"] == "weekly"
+                && t["row"] == week_row
+                && t["column"] == "days_covered"
+        })
+        .expect("days_covered");
+    assert_eq!(covered["value"], "3");
+    let (_, weekly) = read_csv(&reports.join("metrics/weekly.csv"));
+    assert!(weekly.iter().any(|w| w["participant_id"] == "SG-001"
+        && w["series"] == "weekly_weigh_ins"
+        && w["week_start"] == "2026-09-28"));
+    let value = package["resources"][1]["schema"]["fields"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["name"] == "value")
+        .unwrap()["description"]
+        .as_str()
+        .unwrap()
+        .to_string();
+    assert_eq!(package["resources"][1]["name"], "weekly");
+    assert!(
+        value.contains("partial") && value.contains("days_covered"),
+        "{value}"
+    );
     let current = described("outcomes.current_weight_kg");
     assert!(
         current.contains("at the last weigh-in in the period")
