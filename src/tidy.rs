@@ -465,7 +465,11 @@ pub fn datapackage(
                         "date",
                         "the week's first day: its Monday, or its first day in the span reported",
                     ),
-                    DpField::new("value", "number", "the week's value"),
+                    DpField::new(
+                        "value",
+                        "number",
+                        "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv)",
+                    ),
                     DpField::new("lower95", "number", "lower end of its 95 % interval"),
                     DpField::new("upper95", "number", "upper end of its 95 % interval"),
                 ],

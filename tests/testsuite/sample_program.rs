@@ -105,6 +105,126 @@ fn sample_program_runs_end_to_end() {
     let problems = crate::datapackage::check_package(&reports.join("metrics"));
     assert!(problems.is_empty(), "{problems:#?}");
 
+    // What the descriptor says a column is matches what its numbers are (a researcher reads
+    // the descriptor, not the code).
+    let package: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(reports.join("metrics/datapackage.json")).unwrap(),
+    )
+    .unwrap();
+    let described = |name: &str| -> String {
+        package["resources"][0]["schema"]["fields"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["name"] == name)
+            .unwrap_or_else(|| panic!("no field {name}"))["description"]
+            .as_str()
+            .unwrap()
+            .to_string()
+    };
+    // The sample's September is the program's last month, so the forecast runs the
+    // default 84 days (forecast_min_days) past it, to 23 Dec 2026, not to the program's end
+    // (30 Sep 2026); the participant report says so, and the column's description must too.
+    let sg001 = std::fs::read_to_string(reports.join("participants/SG-001.html")).unwrap();
+    assert!(sg001.contains("23 Dec 2026"), "SG-001's forecast horizon");
+    let forecast = described("energy.forecast_weight_at_end_kg");
+    assert!(
+        forecast.contains("forecast_min_days after the period's end")
+            && !forecast.starts_with("Model weight at program end"),
+        "{forecast}"
+    );
+    // The current weight is the trend at the last weigh-in in the period, not at the period's
+    // end: for someone whose last weigh-in is days before the end, the outcomes column equals
+    // the trend module's "on the last day with a weigh-in".
+    let before_end = rows
+        .iter()
+        .find(|r| {
+            r["outcomes.current_weight_source"] == "trend"
+                && r["trend.days_since_last_weigh_in"]
+                    .parse::<f64>()
+                    .is_ok_and(|d| d >= 3.0)
+        })
+        .expect("someone whose last weigh-in is days before the period's end");
+    assert_eq!(
+        before_end["outcomes.current_weight_kg"], before_end["trend.current_weight_kg"],
+        "{}",
+        before_end["participant_id"]
+    );
+    // SG-018 left on 27 July, before September began: their report shows only the resting
+    // energy, and their tidy row gives no period activity or total energy use either (before,
+    // "0" kcal/day of activity and a resting × activity-level total of the days after they
+    // left, which a researcher's September means would have counted).
+    let left = rows
+        .iter()
+        .find(|r| r["participant_id"] == "SG-018")
+        .expect("SG-018");
+    for col in [
+        "energy.activity_net_kcal_per_day",
+        "energy.tdee_kcal_per_day",
+        "energy.tdee_kcal_per_day_lower95",
+        "energy.tdee_kcal_per_day_upper95",
+    ] {
+        assert_eq!(left[col], "", "SG-018 {col}");
+    }
+    assert!(
+        left["energy.rmr_kcal_per_day"]
+            .parse::<f64>()
+            .is_ok_and(|v| v > 1000.0),
+        "SG-018 resting energy `{}`",
+        left["energy.rmr_kcal_per_day"]
+    );
+    let sg018 = std::fs::read_to_string(reports.join("participants/SG-018.html")).unwrap();
+    assert!(sg018.contains("before this period began"));
+    assert!(!sg018.contains("Total energy use per day"));
+    // weekly.csv's last week of September (Mon 28 Sep) covers 3 days of the period: SG-001's
+    // weigh-in count there is over 3 days, not 7, as adherence's weekly table says; the
+    // descriptor must tell a researcher averaging weekly counts that weeks can be partial.
+    let (_, tables_rows) = read_csv(&reports.join("metrics/tables.csv"));
+    let week_row = tables_rows
+        .iter()
+        .find(|t| {
+            t["participant_id"] == "SG-001"
+                && t["table"] == "weekly"
+                && t["column"] == "week_start"
+                && t["value"] == "2026-09-28"
+        })
+        .expect("SG-001's week of 28 Sep")["row"]
+        .clone();
+    let covered = tables_rows
+        .iter()
+        .find(|t| {
+            t["participant_id"] == "SG-001"
+                && t["table"] == "weekly"
+                && t["row"] == week_row
+                && t["column"] == "days_covered"
+        })
+        .expect("days_covered");
+    assert_eq!(covered["value"], "3");
+    let (_, weekly) = read_csv(&reports.join("metrics/weekly.csv"));
+    assert!(weekly.iter().any(|w| w["participant_id"] == "SG-001"
+        && w["series"] == "weekly_weigh_ins"
+        && w["week_start"] == "2026-09-28"));
+    let value = package["resources"][1]["schema"]["fields"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["name"] == "value")
+        .unwrap()["description"]
+        .as_str()
+        .unwrap()
+        .to_string();
+    assert_eq!(package["resources"][1]["name"], "weekly");
+    assert!(
+        value.contains("partial") && value.contains("days_covered"),
+        "{value}"
+    );
+    let current = described("outcomes.current_weight_kg");
+    assert!(
+        current.contains("at the last weigh-in in the period")
+            && !current.contains("end of the period"),
+        "{current}"
+    );
+
     // Module tables in long form: plateaus are assessed, and the sample's adherence drift
     // (by design the commonest story in it) is the commonest decided reading: intake drift is
     // called only when the 95 % interval of the change in implied intake excludes zero, and

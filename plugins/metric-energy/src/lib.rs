@@ -237,7 +237,7 @@ impl MetricModule for EnergyModule {
                 "forecast_weight_at_end_kg",
                 "scalar",
                 "kg",
-                "Model weight at program end with the implied intake held",
+                "Model weight at the end of the forecast horizon (the program's end, or forecast_min_days after the period's end when that is later) with the implied intake and activity held",
             ),
             OutputSpec::new(
                 "steady_state_weight_kg",

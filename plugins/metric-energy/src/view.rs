@@ -35,7 +35,8 @@ pub mod names {
     pub const INTAKE_GAP_KCAL_PER_DAY: &str = "intake_gap_kcal_per_day";
     /// Implied intake minus expenditure (scalar, kcal/d, with interval).
     pub const ENERGY_BALANCE_KCAL_PER_DAY: &str = "energy_balance_kcal_per_day";
-    /// Model weight at program end (scalar, kg, with interval).
+    /// Model weight at the end of the forecast horizon: program end, or `forecast_min_days` past
+    /// the period if later (scalar, kg, with interval).
     pub const FORECAST_WEIGHT_AT_END_KG: &str = "forecast_weight_at_end_kg";
     /// Weight at which the model comes to rest (scalar, kg, with interval).
     pub const STEADY_STATE_WEIGHT_KG: &str = "steady_state_weight_kg";
@@ -348,7 +349,8 @@ pub struct EnergyView {
     pub intake_gap_kcal_per_day: Interval,
     /// Implied intake minus expenditure, kcal/d.
     pub energy_balance_kcal_per_day: Interval,
-    /// Model weight at program end, kg.
+    /// Model weight at the end of the forecast horizon (program end, or `forecast_min_days` past
+    /// the period if later), kg.
     pub forecast_weight_at_end_kg: Interval,
     /// Weight at which the model comes to rest, kg.
     pub steady_state_weight_kg: Interval,

@@ -602,7 +602,7 @@ impl MetricModule for OutcomesModule {
                     names::CURRENT_WEIGHT_KG,
                     "scalar",
                     "kg",
-                    "trend weight at the end of the period",
+                    "trend weight at the last weigh-in in the period (without a trend: that day's weigh-ins; see current_weight_source)",
                 ),
                 OutputSpec::new(names::CHANGE_KG, "scalar", "kg", "current − baseline"),
                 OutputSpec::new(
