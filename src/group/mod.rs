@@ -10,7 +10,8 @@
 //! (BOCF primary, LOCF sensitivity, completers), milestone shares with Wilson intervals, a
 //! histogram and a weekly trajectory of % change, adherence medians, plateau prevalence and the
 //! number of people with a clinician-review flag. See [`summary`] for the exact definitions and
-//! [`suppress`] for the suppression algorithm (REFERENCE §8).
+//! [`suppress`] for the suppression algorithm (CMS Cell Size Suppression
+//! Policy, with complementary suppression).
 //!
 //! These are descriptive programme figures, not clinical findings.
 

@@ -85,7 +85,8 @@ pub struct MeanCi {
 ///
 /// # Formula
 /// `x̄ = Σx/n`, `s = √(Σ(x − x̄)²/(n − 1))`, `SE = s/√n`,
-/// `CI = x̄ ± t_(1−α/2, n−1)·SE` with `α = 1 − confidence` (REFERENCE §8.1).
+/// `CI = x̄ ± t_(1−α/2, n−1)·SE` with `α = 1 − confidence` (the standard Student t interval;
+/// common practice).
 ///
 /// # Remarks
 /// Returns `None` for fewer than two values (no SD, no interval).
@@ -134,8 +135,7 @@ pub struct MedianCi {
 /// With the values sorted `x(1) ≤ … ≤ x(n)` and `B ~ Binomial(n, ½)`, take the largest `k ≥ 1`
 /// with `P(B ≤ k − 1) ≤ α/2`; the interval is `[x(k), x(n − k + 1)]` and its exact coverage is
 /// `1 − 2·P(B ≤ k − 1)` (at least `1 − α`). This is the sign-test interval for a quantile in
-/// Conover WJ, *Practical Nonparametric Statistics*, 3rd ed. 1999, §3.2 (REFERENCE tag M:
-/// from memory).
+/// Conover WJ, *Practical Nonparametric Statistics*, 3rd ed. 1999, §3.2 (from memory).
 ///
 /// # Remarks
 /// Returns `None` when the sample is too small for any order-statistic interval to reach the
@@ -171,7 +171,7 @@ pub fn median_ci(values: &[f64], confidence: f64) -> Option<MedianCi> {
 /// # Formula
 /// `p̂ = x/n`; `centre = (p̂ + z²/(2n)) / (1 + z²/n)`;
 /// `half = z/(1 + z²/n) · √(p̂(1 − p̂)/n + z²/(4n²))`; interval `centre ± half`.
-/// Wilson EB, *J Am Stat Assoc* 1927;22:209–212 (REFERENCE §8.2).
+/// Wilson EB, *J Am Stat Assoc* 1927;22:209–212.
 ///
 /// # Remarks
 /// `n = 0` carries no information and gives `(0, 1)`. Limits are clamped to [0, 1]; `x = 0`
@@ -209,7 +209,7 @@ pub fn wilson(x: u64, n: u64, z: f64) -> (f64, f64) {
 /// # Formula
 /// With Wilson limits `(l1, u1)` for `p1` and `(l2, u2)` for `p2` and `d = p1 − p2`:
 /// `lower = d − √((p1 − l1)² + (u2 − p2)²)`, `upper = d + √((u1 − p1)² + (p2 − l2)²)`.
-/// Method 10 in Newcombe RG, *Stat Med* 1998;17:873–890 (REFERENCE §8.2).
+/// Method 10 in Newcombe RG, *Stat Med* 1998;17:873–890 (formula from memory).
 ///
 /// # Panics
 /// If either sample is empty or `x > n`.
@@ -229,7 +229,7 @@ pub fn newcombe_difference(x1: u64, n1: u64, x2: u64, n2: u64, z: f64) -> (f64, 
 mod tests {
     use super::*;
 
-    /// Tolerance of the REFERENCE check values, which are printed to 4 decimals.
+    /// Tolerance of the check values below, which are given to 4 decimals.
     const TOL_4DP: f64 = 1e-4;
     /// Tolerance for t quantiles printed to 6 decimals.
     const TOL_6DP: f64 = 1e-6;
@@ -240,7 +240,7 @@ mod tests {
 
     #[test]
     fn paired_mean_example() {
-        // REFERENCE §8.1 check [D] (computed from the formula, a regression value for our
+        // Paired-mean t interval check (computed from the formula, a regression value for our
         // implementation, not a published number).
         let d = [-2.1, -3.4, 0.5, -1.2, -4.0, -2.6, -0.8, -3.1];
         let r = mean_ci_t(&d, 0.95).unwrap();
@@ -263,7 +263,7 @@ mod tests {
 
     #[test]
     fn t_quantiles() {
-        // REFERENCE §8.1 t(0.975, df) check values [D].
+        // t(0.975, df) check values, computed from the Student t distribution (regression values).
         for (df, want) in [
             (4.0, 2.776445),
             (7.0, 2.364624),
@@ -280,13 +280,14 @@ mod tests {
 
     #[test]
     fn z_critical_value() {
-        // REFERENCE §8.2 uses z = 1.959964 for 95 %.
+        // z = 1.959964 is the standard normal 0.975 quantile (95 %).
         assert!(close(z_for_confidence(0.95), 1.959964, TOL_6DP));
     }
 
     #[test]
     fn wilson_check_values() {
-        // REFERENCE §8.2 Wilson checks [D] (Wilson 1927 formula; regression values).
+        // Wilson checks computed from the Wilson 1927 formula (J Am Stat Assoc 22:209; regression
+        // values).
         let z = z_for_confidence(0.95);
         for (x, n, lo, hi) in [
             (8, 20, 0.2188, 0.6134),
@@ -304,7 +305,8 @@ mod tests {
 
     #[test]
     fn newcombe_check_value() {
-        // REFERENCE §8.2 Newcombe method 10 check [D]: 12/40 vs 8/20.
+        // Newcombe 1998 (Stat Med 17:873) method 10 check, computed from the formula (a
+        // regression value): 12/40 vs 8/20.
         let (d, lo, hi) = newcombe_difference(12, 40, 8, 20, z_for_confidence(0.95));
         assert!(close(d, -0.1000, 1e-12));
         assert!(close(lo, -0.3445, TOL_4DP), "{lo}");

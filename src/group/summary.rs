@@ -7,7 +7,8 @@
 //! - % change = 100 · (W − W₀)/W₀ per participant (negative = loss); kg change = W − W₀.
 //!   BOCF: a missing outcome is the baseline (0 % change), n = started. LOCF: a missing outcome
 //!   is the last observed weight, or the baseline when there is none, n = started.
-//!   Completers: only those with an outcome (REFERENCE §8.3).
+//!   Completers: only those with an outcome (their biases: Ware JH, *N Engl J Med*
+//!   2003;348:2136, from memory).
 //! - Milestones ≥ 3, 5, 7, 10 % loss and the histogram use the BOCF changes, denominator =
 //!   started. A change counts as reaching k % when it is ≤ −k % (1e-9 tolerance for rounding
 //!   of values exactly on a boundary).
@@ -36,7 +37,8 @@ use super::suppress::{CellId, CellTable};
 use super::venn;
 use super::{GroupOptions, History, ParticipantSummary, Published};
 
-/// Loss thresholds (% of baseline weight) of the milestone lines (REFERENCE §8.3).
+/// Loss thresholds (% of baseline weight) of the milestone lines (the bands commonly
+/// reported; common practice).
 pub const MILESTONE_LOSS_PERCENT: [f64; 4] = [3.0, 5.0, 7.0, 10.0];
 
 /// Histogram bins of % change: (label, lower bound, upper bound). Loss bins include their upper

@@ -4,7 +4,8 @@
 //! reaching 5 % loss, people in a histogram bin, …) and a set of *relations* `total = Σ parts`
 //! that a reader can use to recover a hidden cell by subtraction (enrolled = active + withdrawn;
 //! the histogram bins add up to the number started; the program's count is the sum over the
-//! sites' counts; …). The policy follows the CMS Cell Size Suppression Policy (REFERENCE §8.4):
+//! sites' counts; …). The policy follows the CMS Cell Size Suppression Policy (Centers for
+//! Medicare & Medicaid Services, 2017 version):
 //! no count from 1 to `min_cell_size − 1` is shown, 0 may be shown, and no hidden count may be
 //! derivable from the shown ones.
 //!
@@ -21,7 +22,8 @@
 //!
 //! The complement is the shown member with the lowest *priority* (callers rank cells so that
 //! key denominators such as "started" survive), then the smallest value ("next-smallest cell",
-//! REFERENCE §8.4), preferring non-zero cells (a hidden zero protects little).
+//! the usual complementary-suppression rule; common practice), preferring non-zero cells (a
+//! hidden zero protects little).
 
 /// Handle to one cell of a [`CellTable`].
 pub type CellId = usize;
@@ -998,8 +1000,9 @@ mod tests {
 
     #[test]
     fn reference_row_hides_the_small_cell_and_a_complement() {
-        // REFERENCE §8.4 test: the row [3, 25, 40, total 68] must not display 3, and must also
-        // hide 25 (or the total) (CMS Cell Size Suppression Policy, complementary suppression).
+        // Complementary-suppression test: the row [3, 25, 40, total 68] must not display 3, and
+        // must also hide 25 (or the total) (CMS Cell Size Suppression Policy, complementary
+        // suppression).
         let (mut t, parts, tot) = row(&[3, 25, 40], 68);
         t.apply(11);
         assert!(t.is_suppressed(parts[0]));

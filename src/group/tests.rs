@@ -1,4 +1,4 @@
-//! Tests of the group report: REFERENCE §8.3 missing-data example, section withholding, the
+//! Tests of the group report: the LOCF/BOCF/completers example, section withholding, the
 //! small-group merge rule, and a generic recovery-by-subtraction checker run over the
 //! serialised report of crafted and generated programs.
 
@@ -35,7 +35,7 @@ fn val<T: Copy>(s: &Shown<T>) -> T {
 
 #[test]
 fn missing_data_rules_reference_example() {
-    // REFERENCE §8.3 check [D] (computed from the stated rules; a regression value for our
+    // Missing-data check (computed from the stated rules; a regression value for our
     // implementation): baselines [100, 90, 80, 110], week-12 [95, 86, missing, 104], last observed
     // for the dropout 78 kg → LOCF −4.3497 %, BOCF −3.7247 %, completers −4.9663 %.
     let mut rows = vec![
