@@ -1,7 +1,8 @@
 //! The built-in `trend` metric module of cohortpress: a weight trend with uncertainty from
 //! noisy, irregular weigh-ins, and the plateau, loss and regain periods read from it.
 //!
-//! Methods (REFERENCE §7):
+//! Methods (Harvey 1989 and Durbin & Koopman 2012 for the state-space model, Sen 1968 for the
+//! slope interval; from memory):
 //! - [`llt`]: local linear trend (integrated random walk) state-space model with a Kalman
 //!   filter and Rauch–Tung–Striebel smoother for irregular spacing; noise and trend variances
 //!   by maximum likelihood; a standardized-innovation outlier screen.
@@ -44,7 +45,7 @@ use view::{
 };
 
 /// Length of the windows of the `weight_slope_28d` series, days (four whole weeks, so the
-/// weekly weight cycle cancels; REFERENCE §7.3).
+/// weekly weight cycle cancels; program choice).
 pub const WINDOW_SLOPE_DAYS: usize = 28;
 
 /// The built-in `trend` module.
@@ -1240,7 +1241,7 @@ fn correlated_scatter_inflation(sm: &llt::SmoothedRun) -> f64 {
 /// point estimate inside the band the data have not shown the slope to lie within ±δ, so the
 /// status is `unclear` (little change, no verdict), not `plateau` or `stable`: a plateau must be
 /// shown by the
-/// interval, as the `periods` table requires (REFERENCE §7.3, equivalence-style test). A window
+/// interval, as the `periods` table requires (equivalence-style test; program choice). A window
 /// shorter than `plateau_window_days` (early in a program) can only report a clear loss or
 /// rise; a plateau or steady weight needs a full window. A clear rise is `regaining` whether or
 /// not a loss came first (the `periods` table keeps `regain` for rises after a loss).
@@ -1383,7 +1384,7 @@ mod tests {
     #[test]
     fn an_interval_straddling_the_band_is_no_plateau_verdict() {
         // Point estimate inside ±δ but the interval reaches past −δ: the data have not shown
-        // the slope to lie in the band (REFERENCE §7.3, equivalence-style test), so no
+        // the slope to lie in the band (equivalence-style test; program choice), so no
         // plateau and no steady-weight verdict.
         let w = verdict(WindowKind::Undecided, -0.01, -0.05, 0.03);
         assert_eq!(status_code(&w, true), Status::Unclear);

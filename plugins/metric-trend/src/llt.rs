@@ -27,7 +27,7 @@ pub type Mat2 = [[f64; 2]; 2];
 /// # Remarks
 /// 10⁶ (a prior SD of 1000 kg and 1000 kg/d) is diffuse for body weights while keeping the
 /// cancellation in the smoother's first steps far below the precision we report. The
-/// REFERENCE §7.2a check uses 10⁸; [`StatePrior::diffuse`] takes either.
+/// q = 0 OLS check uses 10⁸; [`StatePrior::diffuse`] takes either.
 pub const DIFFUSE_KAPPA: f64 = 1e6;
 
 /// Number of leading observations treated as the diffuse part of the likelihood (the state has
@@ -40,14 +40,14 @@ pub const Z_95: f64 = 1.959_963_984_540_054;
 /// Bounds on the measurement-noise SD σ_ε, kg.
 ///
 /// # Remarks
-/// Program configuration, not literature constants: REFERENCE §7.1 puts a single morning
-/// weight's SD at 0.5–1.0 kg (from memory / derived). 0.2 kg is below any home scale's day-to-day
+/// Program configuration, not literature constants: a single morning weight's SD is
+/// usually put at 0.5–1.0 kg (from memory). 0.2 kg is below any home scale's day-to-day
 /// variation; 2.0 kg is beyond what a person's fluid swings produce, so an estimate outside is a
 /// symptom of too few data or of unscreened errors, and is clamped.
 pub const SIGMA_EPS_BOUNDS_KG: (f64, f64) = (0.2, 2.0);
 
 /// Measurement-noise SD used when there are too few observations to estimate it, kg
-/// (middle of the 0.5–1.0 kg range of REFERENCE §7.1; from memory / program choice).
+/// (middle of the 0.5–1.0 kg range usually quoted; from memory / program choice).
 pub const DEFAULT_SIGMA_EPS_KG: f64 = 0.7;
 
 /// Signal-to-noise ratio r = q/σ²_ε (1/d³) used when there are too few observations to estimate
@@ -85,7 +85,8 @@ impl StatePrior {
 /// Transition matrix for a gap of `delta` days.
 ///
 /// # Formula
-/// `T(Δ) = [[1, Δ], [0, 1]]` (REFERENCE §7.2a).
+/// `T(Δ) = [[1, Δ], [0, 1]]` (Durbin & Koopman 2012, *Time Series Analysis by State Space
+/// Methods*, 2nd ed.; from memory).
 pub fn transition(delta: f64) -> Mat2 {
     [[1.0, delta], [0.0, 1.0]]
 }
@@ -93,7 +94,8 @@ pub fn transition(delta: f64) -> Mat2 {
 /// Process-noise covariance for a gap of `delta` days.
 ///
 /// # Formula
-/// `Q(Δ) = q·[[Δ³/3, Δ²/2], [Δ²/2, Δ]]` (REFERENCE §7.2a, integrated random walk).
+/// `Q(Δ) = q·[[Δ³/3, Δ²/2], [Δ²/2, Δ]]` (integrated random walk; Durbin &
+/// Koopman 2012, from memory).
 ///
 /// # Remarks
 /// `Q(0)` is zero: two observations at the same time see the same state.
@@ -319,7 +321,7 @@ fn log_lik_from_sums(s: &LikSums, z_cap: f64) -> f64 {
 /// # Formula
 /// Predict `a⁻ = T a`, `P⁻ = T P Tᵀ + Q`; with `Z = [1, 0]`: `v = y − Z a⁻`,
 /// `F = Z P⁻ Zᵀ + σ²_ε`, `K = P⁻ Zᵀ / F`, `a = a⁻ + K v`, `P = P⁻ − K Z P⁻`
-/// (REFERENCE §7.2a), written element-wise as `P₁₁ = P⁻₁₁·σ²_ε/F`, `P₁₂ = P⁻₁₂·σ²_ε/F`,
+/// (Durbin & Koopman 2012), written element-wise as `P₁₁ = P⁻₁₁·σ²_ε/F`, `P₁₂ = P⁻₁₂·σ²_ε/F`,
 /// `P₂₂ = P⁻₂₂ − (P⁻₁₂)²/F` so that a diffuse prior costs no digits in the level variance.
 /// Log-likelihood (prediction-error decomposition, Harvey 1989):
 /// `ℓ = −½ Σ_{t > d} (ln 2π + ln F_t + v_t²/F_t)`, where the first `d = 2` observations form the
@@ -524,7 +526,7 @@ pub struct ParamFit {
 ///
 /// # Formula
 /// `σ₀ = 1.4826 · median(|d_i − median(d)|) / √2`, `d_i = y_{i+1} − y_i` (MAD of first
-/// differences; REFERENCE §7.2e suggests this scale), clamped to [`SIGMA_EPS_BOUNDS_KG`].
+/// differences, the usual robust noise scale; common practice), clamped to [`SIGMA_EPS_BOUNDS_KG`].
 ///
 /// # Remarks
 /// Fewer than 3 differences give [`DEFAULT_SIGMA_EPS_KG`]. It sets the scale the outlier
@@ -714,7 +716,8 @@ mod tests {
 
     #[test]
     fn q_zero_filter_reproduces_reference_ols() {
-        // REFERENCE §7.2a [D] (regression value for our implementation of the formula).
+        // With q = 0 and a diffuse prior the filter equals OLS (regression value for our
+        // implementation of the formula).
         let t = [0.0, 7.0, 14.0, 21.0, 28.0];
         let y = [90.0, 89.4, 89.6, 88.9, 88.7].map(Some);
         let run = kalman_filter(

@@ -1,9 +1,10 @@
 //! Window verdicts (plateau, loss, regain, insufficient data) over the smoothed trend, and
-//! their merging into periods (REFERENCE §7.3).
+//! their merging into periods.
 //!
-//! Every threshold here is **program configuration, not a literature constant** (REFERENCE
-//! §7.3: no consensus definition of a weight-loss plateau exists). The defaults are the ones
-//! REFERENCE §7.3 recommends: a 28-day window (four whole weeks, so the weekly weight cycle
+//! Every threshold here is **program configuration, not a literature constant**: no
+//! consensus definition of a weight-loss plateau exists in the literature (trials such as
+//! Thomas et al. 2014, *Am J Clin Nutr* 100:787, describe it only descriptively). The defaults
+//! are our program choice: a 28-day window (four whole weeks, so the weekly weight cycle
 //! cancels), at least 8 weigh-in days spread over at least 3 of the 4 weeks, an equivalence band
 //! of ±0.25 % of body weight per week, and a prior loss of at least 3 % of baseline (common
 //! practice; Stevens et al. 2006, *Int J Obes* 30:391, treat <3 % change as maintenance).
@@ -343,7 +344,8 @@ pub fn ar1_inflation(r: f64) -> f64 {
 /// log implies ([`crate::fast`]): a plateau is a stall of tissue loss, and water refilling as
 /// intake drifts up flattens the scale weeks before tissue loss stops.
 ///
-/// The defaults are program configuration (REFERENCE §7.3: no consensus definition exists).
+/// The defaults are program configuration (no consensus definition of a plateau
+/// exists in the literature).
 pub fn plateau_runs(sm: &SmoothedRun, has_obs: &[bool], settings: &PlateauSettings) -> Vec<Period> {
     let n = sm.mean.len();
     if n < 14 {
