@@ -3,9 +3,9 @@
 //!
 //! Source of every MET value: Ainsworth BE, Haskell WL, Herrmann SD, et al. "2011 Compendium of
 //! Physical Activities: a second update of codes and MET values." Med Sci Sports Exerc
-//! 2011;43(8):1575–1581. The values were checked against the project's REFERENCE.md §2.2 (tag [C],
-//! taken from a machine-readable copy of the official 2011 tables). The codes here are our own;
-//! the Compendium code and edition are kept with each so a report can say where a MET came from.
+//! 2011;43(8):1575–1581. The values were checked against a machine-readable copy of the official
+//! 2011 tables. The codes here are our own; the Compendium code and edition are kept with each so
+//! a report can say where a MET came from.
 
 /// One row of the activity table.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -45,7 +45,7 @@ const fn a(
 }
 
 /// Every activity, sorted by code. All values: 2011 Compendium (Ainsworth et al. 2011,
-/// Med Sci Sports Exerc 43:1575), as listed in REFERENCE.md §2.2 [C].
+/// Med Sci Sports Exerc 43:1575).
 static TABLE: &[ActivityDef] = &[
     a(
         "aerobics_general",
@@ -736,7 +736,7 @@ mod tests {
 
     #[test]
     fn compendium_values_match_reference() {
-        // Ainsworth et al. 2011, Med Sci Sports Exerc 43:1575 (REFERENCE.md §2.2, [C]).
+        // Ainsworth et al. 2011, Med Sci Sports Exerc 43:1575.
         let w = lookup("walking_3mph").unwrap();
         assert_eq!((w.met, w.compendium_code), (3.5, "17190"));
         assert_eq!(w.met_source(), "Compendium 2011 code 17190");

@@ -514,7 +514,7 @@ pub fn simulate(plan: &Plan, scenario: &Scenario, seed: u64) -> Simulated {
     // --- behaviour -----------------------------------------------------------------------
     let pal = rng.uniform(1.4, 1.7);
     // Energy density of weight change, kcal/kg: between the dynamic models' early values and
-    // the static 7700 kcal/kg rule (Hall 2008, Int J Obes 32:573; REFERENCE §3.1).
+    // the static 7700 kcal/kg rule (Hall 2008, Int J Obes 32:573, from memory).
     let rho = rng.uniform(7700.0, 9000.0);
     let deficit = rng.uniform(300.0, 700.0);
     let rmr = |kg: f64| mifflin_st_jeor(plan.sex, kg, cm, age as f64);
@@ -569,7 +569,7 @@ pub fn simulate(plan: &Plan, scenario: &Scenario, seed: u64) -> Simulated {
         1 => (rng.uniform(2.0, 6.0) / 7.0, false),
         _ => (rng.uniform(0.07, 0.15), false),
     };
-    // Day-to-day scatter of a single weight, 0.5–0.8 kg (REFERENCE §7.1, from memory/derived).
+    // Day-to-day scatter of a single weight, 0.5–0.8 kg (from memory; program choice).
     let sigma = rng.uniform(0.5, 0.8);
     let morning = rng.int(360, 500) as u32;
     let no_log = !host && rng.chance(0.05);
@@ -655,7 +655,8 @@ pub fn simulate(plan: &Plan, scenario: &Scenario, seed: u64) -> Simulated {
             });
         }
 
-        // Activity and its net energy cost, (MET − 1) × kg × hours (REFERENCE §2.1).
+        // Activity and its net energy cost, (MET − 1) × kg × hours (1 MET ≈ 1 kcal/kg/h;
+        // Ainsworth et al. 2011, Med Sci Sports Exerc 43:1575).
         let mut activity_kcal = 0.0;
         if !no_activity && rng.chance(act_rate * e) {
             if rng.chance(0.03) {
@@ -762,8 +763,8 @@ fn push_meals(
             kcal += 1;
         }
         let k = kcal as f64;
-        // Atwater general factors 4/9/4 kcal per g (carbohydrate/fat/protein; from memory,
-        // REFERENCE §6).
+        // Atwater general factors 4/9/4 kcal per g (carbohydrate/fat/protein; FAO 2003, *Food
+        // energy – methods of analysis and conversion factors*; from memory).
         out.push(IntakeRow {
             date: day,
             kcal,
@@ -814,7 +815,7 @@ fn simulate_labs(
             }
         });
         rows.push(if glucose_mmol {
-            // mg/dL ÷ 18.016 (glucose 180.16 g/mol; REFERENCE §0).
+            // mg/dL ÷ 18.016 (glucose molar mass 180.16 g/mol, ÷ 10).
             LabRow {
                 date,
                 test: "fasting_glucose",

@@ -466,7 +466,7 @@ fn mean(xs: &[f64]) -> f64 {
 #[test]
 fn mifflin_st_jeor_matches_check_values() {
     // Regression values for our implementation of Mifflin et al. 1990 (Am J Clin Nutr 51:241),
-    // REFERENCE §1.1 [D].
+    // computed from the published equations.
     use cohortpress_metric_api::Sex;
     assert!((sim::mifflin_st_jeor(Sex::Male, 80.0, 180.0, 40.0) - 1730.0).abs() < 0.01);
     assert!((sim::mifflin_st_jeor(Sex::Female, 65.0, 165.0, 35.0) - 1345.25).abs() < 0.01);

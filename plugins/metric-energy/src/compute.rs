@@ -56,8 +56,8 @@ const MIN_LOGGED_DAYS: usize = 4;
 const GAP_FLAG_KCAL: f64 = 300.0;
 /// Walking cap of the options table, min/d (common practice).
 const MAX_WALK_MIN: f64 = 120.0;
-/// Half-width of the plateau band as a fraction of body weight per week (REFERENCE §7.3,
-/// program configuration rather than a literature constant).
+/// Half-width of the plateau band as a fraction of body weight per week (program
+/// configuration rather than a literature constant: no published plateau definition exists).
 const PLATEAU_BAND_FRACTION_PER_WEEK: f64 = 0.0025;
 /// Default SD of a person's physical activity level around `base_pal` (setting `pal_sd`):
 /// FAO/WHO/UNU 2004 (*Human energy requirements*) puts sedentary-to-light lifestyles at PAL

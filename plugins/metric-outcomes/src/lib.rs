@@ -23,7 +23,7 @@
 //! * **Trend levels** (milestones, largest loss, fast-loss flag) come from the `trend` module's
 //!   daily `weight_trend` series; without it, from the daily means of the raw weigh-ins.
 //! * **Rate** is the trend's `slope_kg_per_week`; without it, the least-squares slope of the
-//!   daily mean weigh-ins in the reporting period (REFERENCE §9.2: from a fitted slope, never
+//!   daily mean weigh-ins in the reporting period (common practice: from a fitted slope, never
 //!   from two endpoint weights).
 //!
 //! Weight outcomes use every weigh-in up to `period.to`, including weigh-ins after a
