@@ -9,7 +9,7 @@ from scipy import stats
 
 print("scipy", scipy.__version__, "numpy", np.__version__)
 
-# REFERENCE §7.2c five-point series (days, kg).
+# The five-point check series of tests/reference.rs (days, kg).
 t = np.array([0, 7, 14, 21, 28], dtype=float)
 y = np.array([90.0, 89.4, 89.6, 88.9, 88.7])
 r = stats.theilslopes(y, t, alpha=0.95)
