@@ -178,11 +178,17 @@ pub fn parse_profile(
             } else {
                 "birth_date"
             };
+            // A huge value (`age: 1e308`) is quoted in scientific notation, not with 309 digits.
+            let shown = if a.abs() < 1e6 {
+                a.to_string()
+            } else {
+                format!("{a:e}")
+            };
             diags.push(at(
                 key,
-                ctx.error(format!("age at enrolment {a} is outside the adult range"))
+                ctx.error(format!("age at enrolment {shown} is outside the adult range"))
                     .expected("an adult aged 18 to 110 at enrolment")
-                    .found(a.to_string())
+                    .found(shown)
                     .hint("this tool's energy equations are for adults; check the value"),
             ));
         }
@@ -383,6 +389,17 @@ flags: [glucose-lowering-medication]
         // In a flow mapping the column points at the value too.
         let (_, d) = parse(&GOOD.replace("-7 }", "70 }"));
         assert_eq!((d[0].line, d[0].column), (Some(10), Some(35)), "{}", d[0]);
+    }
+
+    /// `age: 1e308` was quoted with all 309 digits in the message and its `found`.
+    #[test]
+    fn a_huge_age_is_quoted_in_scientific_notation() {
+        let (p, d) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 1e308"));
+        assert!(p.is_none());
+        assert_eq!(d[0].found.as_deref(), Some("1e308"), "{}", d[0]);
+        assert_eq!(d[0].message, "age at enrolment 1e308 is outside the adult range");
+        let (_, d) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 150"));
+        assert_eq!(d[0].found.as_deref(), Some("150"), "{}", d[0]);
     }
 
     #[test]
