@@ -186,10 +186,12 @@ pub fn parse_profile(
             };
             diags.push(at(
                 key,
-                ctx.error(format!("age at enrolment {shown} is outside the adult range"))
-                    .expected("an adult aged 18 to 110 at enrolment")
-                    .found(shown)
-                    .hint("this tool's energy equations are for adults; check the value"),
+                ctx.error(format!(
+                    "age at enrolment {shown} is outside the adult range"
+                ))
+                .expected("an adult aged 18 to 110 at enrolment")
+                .found(shown)
+                .hint("this tool's energy equations are for adults; check the value"),
             ));
         }
     }
@@ -397,7 +399,10 @@ flags: [glucose-lowering-medication]
         let (p, d) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 1e308"));
         assert!(p.is_none());
         assert_eq!(d[0].found.as_deref(), Some("1e308"), "{}", d[0]);
-        assert_eq!(d[0].message, "age at enrolment 1e308 is outside the adult range");
+        assert_eq!(
+            d[0].message,
+            "age at enrolment 1e308 is outside the adult range"
+        );
         let (_, d) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 150"));
         assert_eq!(d[0].found.as_deref(), Some("150"), "{}", d[0]);
     }
