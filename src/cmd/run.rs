@@ -108,7 +108,11 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
                 commit_s = ms(timing.commit_s),
                 "timing in seconds per phase"
             );
+            let code = summary_code(&summary);
+            // The exit code rides on the last line too, for log collectors that keep the
+            // JSON lines but not the process's status.
             tracing::info!(
+                exit_code = code,
                 "done in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
                 started.elapsed().as_secs_f64(),
                 summary.reported,
@@ -117,7 +121,7 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
                 summary.warnings,
                 plan.out_dir.display()
             );
-            summary_code(&summary)
+            code
         }
         Err(e) => report_failure(&e, true),
     }

@@ -308,6 +308,13 @@ fn a_cron_style_run_logs_json_lines_and_no_progress_bar() {
         if v["fields"]["message"] == "timing in seconds per phase" {
             assert!(v["fields"]["participants_s"].is_number(), "{l}");
         }
+        // The last line carries the run's exit code (it had none).
+        if v["fields"]["message"]
+            .as_str()
+            .is_some_and(|m| m.starts_with("done in"))
+        {
+            assert_eq!(v["fields"]["exit_code"], r.code, "{l}");
+        }
     }
     assert!(
         messages.iter().any(|m| m.starts_with("done in")),
