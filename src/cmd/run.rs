@@ -92,6 +92,8 @@ fn report_failure(e: &RunError, as_log: bool) -> i32 {
 /// `cohortpress run`.
 pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
     let started = Instant::now();
+    #[cfg(unix)]
+    crate::modules::external::stop_modules_on_interrupt();
     let plan = match run::plan::plan(&run_options(args), today) {
         Ok(p) => p,
         Err(e) => return report_failure(&e, false),

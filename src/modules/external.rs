@@ -414,13 +414,15 @@ fn live_groups() -> std::sync::MutexGuard<'static, std::collections::BTreeMap<u3
     LIVE_GROUPS.lock().unwrap_or_else(|e| e.into_inner())
 }
 
-/// On the first call, starts a thread that waits for SIGINT or SIGTERM; when one arrives it kills
-/// the process groups of the modules running then, removes their working folders, and ends the
-/// process as the signal would have.
+/// On the first call, starts a thread that waits for SIGINT or SIGTERM; when one arrives it
+/// says so in the log, kills the process groups of the modules running then, removes their
+/// working folders, and ends the process as the signal would have.
 /// Modules lead groups of their own, so a Ctrl-C at the terminal or a scheduler stopping the job
-/// reaches only cohortpress; without this their processes would outlive the run.
+/// reaches only cohortpress; without this their processes would outlive the run. `run` calls it
+/// at its start, so an interrupted run always leaves a last line in the log (a scheduler's stop
+/// had left none).
 #[cfg(unix)]
-fn stop_modules_on_interrupt() {
+pub fn stop_modules_on_interrupt() {
     static INSTALL: std::sync::Once = std::sync::Once::new();
     INSTALL.call_once(|| {
         use signal_hook::consts::{SIGINT, SIGTERM};
@@ -436,6 +438,16 @@ fn stop_modules_on_interrupt() {
         };
         std::thread::spawn(move || {
             if let Some(signal) = signals.forever().next() {
+                let name = if signal == SIGINT {
+                    "SIGINT"
+                } else {
+                    "SIGTERM"
+                };
+                tracing::error!(
+                    "interrupted by {name}: the run stops here; an output not yet put in place \
+                     leaves the previous one as it was, and the next run clears what this one \
+                     had started"
+                );
                 let groups = live_groups();
                 for (&pgid, dir) in groups.iter() {
                     if let Some(pid) = rustix::process::Pid::from_raw(pgid as i32) {

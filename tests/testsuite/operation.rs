@@ -207,6 +207,45 @@ fn a_killed_run_leaves_the_previous_output_and_its_lock_blocks_nobody() {
     assert!(!names.iter().any(|n| n.contains("SG-001")), "{names:?}");
 }
 
+/// A scheduler stopping a run (SIGTERM) left no line in the log: an administrator reading it
+/// saw a run that started and never ended. It now says it was interrupted, and the previous
+/// output is still the complete one.
+#[cfg(unix)]
+#[test]
+fn a_run_stopped_by_sigterm_says_so_in_its_log() {
+    use std::io::Read as _;
+    let t = ProgramTest::demo(60);
+    let o = out(&t, "reports");
+    let first = run(&t, &o, &["--only", "SG-001", "--formats", "html"]);
+    assert_eq!(first.code, 0, "{}", first.stderr);
+    let before = tree_hashes(Path::new(&o));
+
+    let mut big = spawn_run(&t, &o, &["--jobs", "1"]);
+    wait_for_files(&mut big, &staging_of(&o).join("participants"), 4);
+    let killed = Command::new("kill")
+        .args(["-TERM", &big.id().to_string()])
+        .status()
+        .unwrap();
+    assert!(killed.success());
+    let status = big.wait().unwrap();
+    assert!(!status.success());
+    let mut stderr = String::new();
+    big.stderr
+        .take()
+        .unwrap()
+        .read_to_string(&mut stderr)
+        .unwrap();
+    assert!(
+        stderr.contains("interrupted by SIGTERM: the run stops here"),
+        "{stderr}"
+    );
+    assert_eq!(
+        tree_hashes(Path::new(&o)),
+        before,
+        "the previous output changed"
+    );
+}
+
 #[test]
 fn repeated_runs_and_any_job_count_give_identical_outputs() {
     let t = ProgramTest::demo(10);
