@@ -966,13 +966,29 @@ fn energy_section(
         "Intake implied by your weight trend",
         e.implied_intake_kcal_per_day,
     );
-    if let Some(g) = e.intake_gap_kcal_per_day.value {
+    // A difference is shown as the difference of the two figures printed above it, so the three
+    // add up (as the change since the start does): "+899" beside 3,268 and 2,370 read as an
+    // error (logged 2,369.5). The tidy metrics keep the unrounded difference.
+    let printed_difference = |d: Option<f64>, a: Option<f64>, b: Option<f64>| match (a, b) {
+        (Some(a), Some(b)) => d.map(|_| a.round() - b.round()),
+        _ => d,
+    };
+    let implied = e.implied_intake_kcal_per_day.value;
+    if let Some(g) = printed_difference(
+        e.intake_gap_kcal_per_day.value,
+        implied,
+        e.logged_intake_kcal_per_day.value,
+    ) {
         items.push(Kv::new(
             "Implied intake minus logged intake",
             &fmt::kcal_change(g),
         ));
     }
-    if let Some(b) = e.energy_balance_kcal_per_day.value {
+    if let Some(b) = printed_difference(
+        e.energy_balance_kcal_per_day.value,
+        implied,
+        e.tdee_kcal_per_day.value,
+    ) {
         items.push(Kv::new("Energy balance (implied)", &fmt::kcal_change(b)));
     }
     items.push(Kv::new("Resting-energy equation", e.rmr_equation.label()));

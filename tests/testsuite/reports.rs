@@ -945,6 +945,28 @@ fn every_participant_report_shows_the_tidy_figures() {
             Some(expected_change),
             "{id}"
         );
+        // The energy table's differences are those of the figures printed above them (SG-004
+        // read "+899" beside 3,268 and 2,370: the logged 2,369.5 rounds up).
+        for (label, a, b) in [
+            (
+                "Implied intake minus logged intake",
+                "energy.implied_intake_kcal_per_day",
+                "energy.logged_intake_kcal_per_day",
+            ),
+            (
+                "Energy balance (implied)",
+                "energy.implied_intake_kcal_per_day",
+                "energy.tdee_kcal_per_day",
+            ),
+        ] {
+            if let (Some(a), Some(b)) = (num(row, a), num(row, b)) {
+                assert_eq!(
+                    kv_value(&html, label).map(|v| unescape(&v)),
+                    Some(fmt::kcal_change(a.round() - b.round())),
+                    "{id}: {label}"
+                );
+            }
+        }
     }
 }
 
