@@ -93,7 +93,7 @@ fn report_failure(e: &RunError, as_log: bool) -> i32 {
 pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
     let started = Instant::now();
     #[cfg(unix)]
-    crate::modules::external::stop_modules_on_interrupt();
+    crate::modules::external::watch_interrupts();
     let plan = match run::plan::plan(&run_options(args), today) {
         Ok(p) => p,
         Err(e) => return report_failure(&e, false),

@@ -165,10 +165,15 @@ impl CellTable {
     /// Past [`WORK_LIMIT`]: every cell hidden, no range given.
     fn give_up(&mut self) -> Vec<Option<(u64, u64)>> {
         self.exhausted = true;
+        self.hide_all();
+        vec![None; self.cells.len()]
+    }
+
+    /// Hides every cell (the safe answer when the suppression cannot finish).
+    fn hide_all(&mut self) {
         for c in &mut self.cells {
             c.suppressed = true;
         }
-        vec![None; self.cells.len()]
     }
 
     /// True when the table has no cells.
@@ -351,21 +356,17 @@ impl CellTable {
     /// the simplex's work grows with the rows. [`CellTable::optimise`] checks each solution
     /// against every relation, so a row wrongly taken as dependent cannot widen a range.
     fn independent_relations(&self, comp: &[CellId], rels: &[usize]) -> Vec<usize> {
-        let index: std::collections::HashMap<CellId, usize> =
-            comp.iter().enumerate().map(|(i, &c)| (c, i)).collect();
+        let mut col_of = vec![usize::MAX; self.cells.len()];
+        for (i, &c) in comp.iter().enumerate() {
+            col_of[c] = i;
+        }
         // Basis rows, each normalised to 1 at its pivot column.
         let mut basis: Vec<(usize, Vec<f64>)> = Vec::new();
         let mut out = Vec::new();
         for &r in rels {
-            let rel = &self.relations[r];
-            let mut row: Vec<f64> = vec![0.0; comp.len()];
-            for (m, sign) in
-                std::iter::once((rel.total, 1.0)).chain(rel.parts.iter().map(|&p| (p, -1.0)))
-            {
-                if let Some(&i) = index.get(&m) {
-                    row[i] += sign;
-                }
-            }
+            let Some(mut row) = relation_row(&self.relations[r], &col_of, comp.len()) else {
+                continue;
+            };
             let scale = row.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
             if scale == 0.0 {
                 continue;
@@ -735,9 +736,7 @@ impl CellTable {
             let suppressed: Vec<bool> = self.cells.iter().map(|c| c.suppressed).collect();
             let hidden = suppressed.iter().filter(|&&h| h).count() as f64;
             if !self.spend(self.relations.len() as f64 * hidden * hidden) {
-                for c in &mut self.cells {
-                    c.suppressed = true;
-                }
+                self.hide_all();
                 break;
             }
             let det = determined(&suppressed, &self.relations);
@@ -750,9 +749,7 @@ impl CellTable {
                     // Unreachable for consistent tables: a determined non-zero cell needs a
                     // shown non-zero cell somewhere in its relations. Hide everything linked.
                     debug_assert!(false, "no complement found for a determined cell");
-                    for c in &mut self.cells {
-                        c.suppressed = true;
-                    }
+                    self.hide_all();
                     break;
                 }
             }
@@ -845,6 +842,20 @@ enum Lp {
     Failed,
 }
 
+/// A relation `total − Σ parts = 0` as a row over the columns `col_of` gives its hidden cells
+/// (`usize::MAX`: shown, a constant), `None` when no member is hidden.
+fn relation_row(r: &Relation, col_of: &[usize], ncols: usize) -> Option<Vec<f64>> {
+    let mut row = vec![0.0; ncols];
+    let mut any = false;
+    for (m, sign) in std::iter::once((r.total, 1.0)).chain(r.parts.iter().map(|&p| (p, -1.0))) {
+        if col_of[m] != usize::MAX {
+            row[col_of[m]] += sign;
+            any = true;
+        }
+    }
+    any.then_some(row)
+}
+
 /// A component's relations for the range programs ([`CellTable::optimise`]).
 struct Relations {
     /// Every relation with a hidden member in the component.
@@ -900,24 +911,10 @@ pub fn determined(suppressed: &[bool], relations: &[Relation]) -> Vec<bool> {
     if ncols == 0 {
         return out;
     }
-    let mut rows: Vec<Vec<f64>> = Vec::new();
-    for r in relations {
-        let mut row = vec![0.0; ncols];
-        let mut any = false;
-        if suppressed[r.total] {
-            row[col_of[r.total]] += 1.0;
-            any = true;
-        }
-        for &p in &r.parts {
-            if suppressed[p] {
-                row[col_of[p]] -= 1.0;
-                any = true;
-            }
-        }
-        if any {
-            rows.push(row);
-        }
-    }
+    let mut rows: Vec<Vec<f64>> = relations
+        .iter()
+        .filter_map(|r| relation_row(r, &col_of, ncols))
+        .collect();
     // Entries are small integers combined by ±1 steps, so 1e-9 separates zero from non-zero.
     const EPS: f64 = 1e-9;
     let mut pivots = Vec::new(); // (row, col)

@@ -223,7 +223,7 @@ impl Launch {
         };
         #[cfg(unix)]
         {
-            stop_modules_on_interrupt();
+            watch_interrupts();
             live.insert(child.id(), workdir.path().to_path_buf());
             drop(live);
         }
@@ -422,7 +422,7 @@ fn live_groups() -> std::sync::MutexGuard<'static, std::collections::BTreeMap<u3
 /// at its start, so an interrupted run always leaves a last line in the log (a scheduler's stop
 /// had left none).
 #[cfg(unix)]
-pub fn stop_modules_on_interrupt() {
+pub fn watch_interrupts() {
     static INSTALL: std::sync::Once = std::sync::Once::new();
     INSTALL.call_once(|| {
         use signal_hook::consts::{SIGINT, SIGTERM};
