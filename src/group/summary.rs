@@ -191,7 +191,11 @@ impl Methods {
             suppression: format!(
                 "No count from 1 to {} is shown; 0 is shown. Further cells are hidden so that \
                  no hidden count can be worked out from the shown ones, and a share, mean or \
-                 interval is hidden when a count it rests on is hidden.",
+                 interval is hidden when a count it rests on is hidden. In the weekly \
+                 trajectory, n is exact while everyone who started is still weighing in; after \
+                 that it is given as a range of {min} values, counted down from the number \
+                 started, so that no two weeks' n can be subtracted to count the few who \
+                 stopped in between; a week's mean needs at least {min} people.",
                 min.saturating_sub(1)
             ),
             small_groups: format!(
@@ -441,7 +445,6 @@ enum Kind {
     Reached(usize),
     NotReached(usize),
     Bin(usize),
-    Week(u32),
     AdherenceN(usize),
     PlateauWithVerdict,
     PlateauYes,
@@ -464,7 +467,6 @@ impl Kind {
             Kind::Reached(i) => format!("reached {} % loss", MILESTONE_LOSS_PERCENT[i]),
             Kind::NotReached(i) => format!("did not reach {} % loss", MILESTONE_LOSS_PERCENT[i]),
             Kind::Bin(i) => format!("change {}", BINS[i].0),
-            Kind::Week(w) => format!("with a value in week {}", w + 1),
             Kind::AdherenceN(i) => format!("with adherence measure {}", i + 1),
             Kind::PlateauWithVerdict => "with a plateau verdict".into(),
             Kind::PlateauYes => "on a plateau".into(),
@@ -482,7 +484,7 @@ impl Kind {
             Kind::PlateauInsufficient => 0,
             Kind::Active | Kind::Withdrawn | Kind::Bin(_) | Kind::Flagged => 1,
             Kind::PlateauYes | Kind::PlateauNo => 1,
-            Kind::Reached(_) | Kind::Week(_) | Kind::AdherenceN(_) => 2,
+            Kind::Reached(_) | Kind::AdherenceN(_) => 2,
             Kind::PlateauWithVerdict => 2,
             Kind::Enrolled => 3,
             Kind::WithOutcome => 4,
@@ -526,7 +528,7 @@ fn is_started(r: &ParticipantSummary) -> bool {
 /// Index of a row among the enrolled rows, by address (rows are borrowed from one slice).
 type RowIndex = HashMap<*const ParticipantSummary, usize>;
 
-fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>, index: &RowIndex) -> Raw {
+fn raw_section(rows: &[&ParticipantSummary], index: &RowIndex) -> Raw {
     let mut raw = Raw::default();
     let mut counts: BTreeMap<Kind, u64> = BTreeMap::new();
     let mut members: BTreeMap<Kind, Vec<usize>> = BTreeMap::new();
@@ -618,23 +620,14 @@ fn raw_section(rows: &[&ParticipantSummary], weeks: &BTreeSet<u32>, index: &RowI
         }
     }
     counts.entry(Kind::Flagged).or_insert(0);
-    for &w in weeks {
-        counts.insert(
-            Kind::Week(w),
-            raw.weeks.get(&w).map_or(0, |v| v.len() as u64),
-        );
-        members.insert(
-            Kind::Week(w),
-            raw.week_idx.get(&w).cloned().unwrap_or_default(),
-        );
-    }
     raw.counts = counts;
     raw.members = members;
     raw
 }
 
-/// The kinds every section registers as cells.
-fn all_kinds(weeks: &BTreeSet<u32>) -> Vec<Kind> {
+/// The kinds every section registers as cells. The weekly trajectory's counts are not cells:
+/// see [`week_count`].
+fn all_kinds() -> Vec<Kind> {
     let mut k = vec![
         Kind::Enrolled,
         Kind::Active,
@@ -649,7 +642,6 @@ fn all_kinds(weeks: &BTreeSet<u32>) -> Vec<Kind> {
         k.push(Kind::NotReached(i));
     }
     k.extend((0..BINS.len()).map(Kind::Bin));
-    k.extend(weeks.iter().map(|&w| Kind::Week(w)));
     k.extend((0..4).map(Kind::AdherenceN));
     k.extend([
         Kind::PlateauWithVerdict,
@@ -768,7 +760,7 @@ pub(super) fn build(
         members: Vec::new(),
         combined_into: None,
         withheld: program_small.then(|| withheld_note(min)),
-        raw: (!program_small).then(|| raw_section(&enrolled, &weeks, &index)),
+        raw: (!program_small).then(|| raw_section(&enrolled, &index)),
         cells: BTreeMap::new(),
     };
 
@@ -863,7 +855,7 @@ pub(super) fn build(
                 members: Vec::new(),
                 combined_into: (is_merged && !collapsed).then(|| combined_label.clone()),
                 withheld,
-                raw: (!is_merged).then(|| raw_section(rs, &weeks, &index)),
+                raw: (!is_merged).then(|| raw_section(rs, &index)),
                 cells: BTreeMap::new(),
             });
         }
@@ -893,7 +885,7 @@ pub(super) fn build(
                     .collect(),
                 combined_into: None,
                 withheld: None,
-                raw: Some(raw_section(&rs, &weeks, &index)),
+                raw: Some(raw_section(&rs, &index)),
                 cells: BTreeMap::new(),
             });
         }
@@ -901,7 +893,7 @@ pub(super) fn build(
     }
 
     // Cells and relations.
-    let kinds = all_kinds(&weeks);
+    let kinds = all_kinds();
     let mut table = CellTable::new();
     let register = |d: &mut Draft, bias: u8, table: &mut CellTable| {
         if let Some(raw) = &d.raw {
@@ -1198,8 +1190,9 @@ pub(super) fn build(
             if shown(Kind::WithOutcome) {
                 lines.push((Line::Completers, 2 + base, changes));
             }
+            let started = shown(Kind::Started).then(|| raw.count(Kind::Started));
             for (&w, idx) in &raw.week_idx {
-                if shown(Kind::Week(w)) {
+                if week_count(idx.len() as u64, started, min).1 {
                     let vals = &raw.weeks[&w];
                     let atoms = idx
                         .iter()
@@ -1267,7 +1260,10 @@ pub(super) fn build(
         withheld: d.withheld.clone(),
         stats: d.raw.as_ref().filter(|_| d.shown()).map(|raw| {
             let lines = withdrawn.get(&(d as *const Draft)).unwrap_or(&no_lines);
-            section_stats(raw, &d.cells, &table, &ranges, lines, confidence)
+            let min = if suppress { min } else { 0 };
+            section_stats(
+                raw, &d.cells, &table, &ranges, lines, &weeks, min, confidence,
+            )
         }),
     };
     let report = GroupReport {
@@ -1290,9 +1286,60 @@ pub(super) fn build(
     (report, published)
 }
 
+/// How a week of the trajectory prints its number of participants `n`, and whether its mean
+/// may be shown at all, given the section's number started (`None` when that count is hidden).
+///
+/// The weeks' counts fall a few people at a time as people stop weighing in (300, 297, 293,
+/// …), so printed exactly, any two of them, or one of them and the number started, give by
+/// subtraction how many stopped in between: a count of fewer than `min` people. Protecting
+/// each such difference by hiding counts (as the other counts are protected) hid a week count
+/// for nearly every week and, through the relations, most of the report: a clean 300-person
+/// program showed neither its enrolment nor its weight change. So the weeks' counts are not
+/// cells of the suppression at all. A week everyone started reaches prints n exactly (it is the
+/// number started); any other prints the band of width `min` that its shortfall from the number
+/// started lies in — shortfall 1 … min, min + 1 … 2·min, … — so no subtraction from the number
+/// started, from another week or from a band of another section pins a difference. A mean
+/// (with its interval) is shown when n ≥ min and, since a shown mean tells the reader so, the
+/// band cut to n ≥ min still leaves at least three possible values (program choice, as the
+/// range audit of the counts); a 12-person section with 11 in a week would otherwise give "11"
+/// exactly and a shortfall of one. With the number started hidden there is no anchor: n is not
+/// shown, and the mean is shown when n ≥ min. The means themselves go through the sum audit
+/// like every other mean.
+/// `min` 0: no protection (the truth the suppression tests compare against).
+fn week_count(n: u64, started: Option<u64>, min: u32) -> (Shown<u64>, bool) {
+    if min == 0 {
+        return (Shown::Value(n), true);
+    }
+    let min = u64::from(min);
+    if n < min {
+        return (Shown::Suppressed, false);
+    }
+    let Some(s) = started.filter(|&s| s >= n) else {
+        return (Shown::Suppressed, true);
+    };
+    let short = s - n;
+    if short == 0 {
+        return (Shown::Value(n), true);
+    }
+    let k = (short - 1) / min;
+    let hi = s - 1 - k * min;
+    let lo = s.saturating_sub((k + 1) * min);
+    // What the reader knows once the mean is shown: n ≥ min.
+    if hi + 1 < lo.max(min) + 3 {
+        return (Shown::Suppressed, false);
+    }
+    (
+        Shown::Range {
+            lo: lo.max(min),
+            hi,
+        },
+        true,
+    )
+}
+
 /// Links every pair of counts of the release whose people are nested and whose difference is
 /// 1 … min − 1 (found from who is counted, not from the figures' names: "enrolled" and "with
-/// activity data", "started" and "with a value in week 3", a site's count and the program's)
+/// activity data", "started" and "with a plateau verdict", a site's count and the program's)
 /// by the relation `outer = inner + difference`, so that the suppression and the range audit
 /// protect the difference like any printed count. The difference is an existing cell when one
 /// counts exactly those people, else a hidden cell that is never printed
@@ -1479,12 +1526,15 @@ fn change_stats(values: &[f64], hidden: bool, confidence: f64, step: f64) -> Cha
     }
 }
 
+#[allow(clippy::too_many_arguments)]
 fn section_stats(
     raw: &Raw,
     cells: &BTreeMap<Kind, CellId>,
     table: &CellTable,
     ranges: &[Option<(u64, u64)>],
     withdrawn: &BTreeSet<Line>,
+    weeks: &BTreeSet<u32>,
+    min: u32,
     confidence: f64,
 ) -> SectionStats {
     let hidden = |k: Kind| table.is_suppressed(cells[&k]);
@@ -1556,20 +1606,18 @@ fn section_stats(
             count: count(Kind::Bin(i)),
         })
         .collect();
-    let trajectory = cells
-        .keys()
-        .filter_map(|&k| match k {
-            Kind::Week(w) => Some(w),
-            _ => None,
-        })
-        .map(|w| {
-            let h = hidden(Kind::Week(w)) || withdrawn.contains(&Line::Week(w));
+    let started = (!hidden(Kind::Started)).then(|| raw.count(Kind::Started));
+    let trajectory = weeks
+        .iter()
+        .map(|&w| {
             let empty = Vec::new();
             let vals = raw.weeks.get(&w).unwrap_or(&empty);
+            let (n, mean_shown) = week_count(vals.len() as u64, started, min);
+            let h = !mean_shown || withdrawn.contains(&Line::Week(w));
             let mci = stats::mean_ci_t(vals, confidence);
             WeekPoint {
                 week: w,
-                n: count(Kind::Week(w)),
+                n,
                 mean_percent: Shown::from_option(
                     stats::mean(vals).map(|v| round_to(v, MEAN_STEP)),
                     h,

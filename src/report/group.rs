@@ -535,7 +535,7 @@ fn fill(
         .collect();
     if pts.iter().filter(|p| p.1.is_finite()).count() >= 2 {
         let name = format!("{anchor}-trajectory");
-        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band, over the participants whose weight trend reaches that week (n in the table): someone who stopped weighing in leaves the later weeks, so these are means of those still weighing in, not intention-to-treat, and later weeks lean towards the people who stayed. A week whose mean is not shown (too few participants, or a figure from which a small count could be worked out by subtraction) is a gap in the line. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
+        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band, over the participants whose weight trend reaches that week (n in the table, exact while everyone who started is counted and otherwise given as a range, so that weeks cannot be subtracted from one another to count the few who stopped in between): someone who stopped weighing in leaves the later weeks, so these are means of those still weighing in, not intention-to-treat, and later weeks lean towards the people who stayed. A week whose mean is not shown (too few participants, or a figure from which a small count could be worked out by subtraction) is a gap in the line. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
         let table = TableView {
             header: vec!["Week".into(), "n".into(), "Mean change (95 % CI)".into()],
             rows: st
