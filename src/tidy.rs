@@ -468,7 +468,7 @@ pub fn datapackage(
                     DpField::new(
                         "value",
                         "number",
-                        "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv)",
+                        "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv); a level (the trend's weight_trend_weekly) is its value on the week's last day in the series",
                     ),
                     DpField::new("lower95", "number", "lower end of its 95 % interval"),
                     DpField::new("upper95", "number", "upper end of its 95 % interval"),

@@ -204,6 +204,35 @@ fn sample_program_runs_end_to_end() {
     assert!(weekly.iter().any(|w| w["participant_id"] == "SG-001"
         && w["series"] == "weekly_weigh_ins"
         && w["week_start"] == "2026-09-28"));
+    // The weekly weight trend ends at the trend's last point: the current weight (the trend at
+    // the last weigh-in), for every participant with one.
+    let (_, participants) = read_csv(&reports.join("metrics/participants.csv"));
+    let mut compared = 0;
+    for p in &participants {
+        let Ok(current) = p["trend.current_weight_kg"].parse::<f64>() else {
+            continue;
+        };
+        let last = weekly
+            .iter()
+            .filter(|w| {
+                w["participant_id"] == p["participant_id"] && w["series"] == "weight_trend_weekly"
+            })
+            .max_by(|a, b| a["week_start"].cmp(&b["week_start"]))
+            .expect("a participant with a trend has a weekly trend");
+        let v: f64 = last["value"].parse().unwrap();
+        assert!(
+            (v - current).abs() < 1e-9,
+            "{}: {v} vs {current}",
+            p["participant_id"]
+        );
+        let (lo, hi): (f64, f64) = (
+            last["lower95"].parse().unwrap(),
+            last["upper95"].parse().unwrap(),
+        );
+        assert!(lo < v && v < hi);
+        compared += 1;
+    }
+    assert!(compared >= 40, "{compared}");
     let value = package["resources"][1]["schema"]["fields"]
         .as_array()
         .unwrap()

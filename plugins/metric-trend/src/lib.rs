@@ -28,7 +28,7 @@ pub mod step;
 pub mod theil_sen;
 pub mod view;
 
-use chrono::{Days, NaiveDate};
+use chrono::{Datelike, Days, NaiveDate};
 use cohortpress_metric_api::view::TableRow;
 use cohortpress_metric_api::{
     FlagSeverity, MetricModule, ModuleContext, ModuleError, ModuleOutput, ModuleSpec, OutputSpec,
@@ -215,6 +215,14 @@ impl MetricModule for TrendModule {
                     "series",
                     "kg/d",
                     "Mean rate of change over the 28 days ending each day, with 95 % band",
+                ),
+                OutputSpec::new(
+                    names::WEIGHT_TREND_WEEKLY,
+                    "series",
+                    "kg",
+                    "Trend weight on each calendar week's last day in the trend's span (first to \
+                     last weigh-in of the period), with 95 % band; dated by the week's Monday, or \
+                     the span's first day in its first week",
                 ),
                 OutputSpec::new(
                     names::PLATEAU_CONFIDENCE,
@@ -961,6 +969,19 @@ fn compute_trend(
             })
         })
         .collect();
+    let weekly = out
+        .series
+        .iter()
+        .find(|s| s.name == names::WEIGHT_TREND)
+        .map(|s| week_ends(&s.points))
+        .unwrap_or_default();
+    out.series.push(Series {
+        name: names::WEIGHT_TREND_WEEKLY.into(),
+        unit: "kg".into(),
+        step: "weekly".into(),
+        label: "Trend weight at the end of each week".into(),
+        points: weekly,
+    });
     out.series.push(weigh_in_series(data, to, &skipped_dates));
     out.series.push(Series {
         name: names::WEIGHT_SLOPE_28D.into(),
@@ -1297,6 +1318,34 @@ fn current_status(
     }
 }
 
+/// One point per calendar week (Monday to Sunday) of a daily series: the value and band of the
+/// week's last day in the series, dated by the week's first day in it (its Monday, or the
+/// series' first day in its first week), as the tidy weekly file dates every module's weeks.
+/// A level read at the week's end, not a mean over the week: the daily trend's band at a day is
+/// exact, a mean of correlated daily bands is not.
+fn week_ends(daily: &[Point]) -> Vec<Point> {
+    let mut out: Vec<Point> = Vec::new();
+    let mut week: Option<NaiveDate> = None;
+    for p in daily {
+        let monday =
+            p.date - chrono::Duration::days(i64::from(p.date.weekday().num_days_from_monday()));
+        if week == Some(monday) {
+            let first = out.last().map(|q| q.date).unwrap_or(p.date);
+            *out.last_mut().expect("a week in progress has a point") = Point {
+                date: first,
+                ..p.clone()
+            };
+        } else {
+            week = Some(monday);
+            out.push(Point {
+                date: monday.max(p.date),
+                ..p.clone()
+            });
+        }
+    }
+    out
+}
+
 fn weigh_in_series(data: &ParticipantData, to: NaiveDate, skipped: &[NaiveDate]) -> Series {
     Series {
         name: names::WEIGH_INS.into(),
@@ -1368,6 +1417,36 @@ fn push_missing_scalars(out: &mut ModuleOutput, n: usize, days_since: Option<f64
 mod tests {
     use super::*;
     use plateau::WindowVerdict;
+
+    #[test]
+    fn week_ends_take_each_calendar_weeks_last_day_dated_by_its_first() {
+        // Wednesday 1 April 2026 to Tuesday 14 April: a partial first week (Wed–Sun), a whole
+        // one, and a partial last one (Mon–Tue).
+        let first = NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+        let daily: Vec<Point> = (0..14)
+            .map(|i| Point {
+                date: add_days(first, i),
+                value: 80.0 - 0.1 * i as f64,
+                lower: Some(79.0 - i as f64),
+                upper: Some(81.0 + i as f64),
+            })
+            .collect();
+        let weeks = week_ends(&daily);
+        let day = |m: u32, d: u32| NaiveDate::from_ymd_opt(2026, m, d).unwrap();
+        let got: Vec<(NaiveDate, f64, Option<f64>)> =
+            weeks.iter().map(|p| (p.date, p.value, p.lower)).collect();
+        // Sunday 5 April is day 4, Sunday 12 April day 11, Tuesday 14 April day 13.
+        assert_eq!(
+            got,
+            vec![
+                (day(4, 1), 80.0 - 0.1 * 4.0, Some(75.0)),
+                (day(4, 6), 80.0 - 0.1 * 11.0, Some(68.0)),
+                (day(4, 13), 80.0 - 0.1 * 13.0, Some(66.0)),
+            ]
+        );
+        assert_eq!(weeks[2].upper, Some(94.0));
+        assert!(week_ends(&[]).is_empty());
+    }
 
     fn verdict(kind: WindowKind, slope: f64, lower: f64, upper: f64) -> WindowVerdict {
         WindowVerdict {

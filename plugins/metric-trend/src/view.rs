@@ -19,6 +19,9 @@ pub mod names {
     pub const WEIGH_INS: &str = "weigh_ins";
     /// Mean rate of change over the 28 days ending each day (series, kg/d).
     pub const WEIGHT_SLOPE_28D: &str = "weight_slope_28d";
+    /// Trend weight on each calendar week's last day in the trend's span, with its 95 % band
+    /// (series, kg, weekly), for the tidy weekly file.
+    pub const WEIGHT_TREND_WEEKLY: &str = "weight_trend_weekly";
     /// Probability that the current plateau's mean slope lies in the band (scalar).
     pub const PLATEAU_CONFIDENCE: &str = "plateau_confidence";
     /// Day the trend entered the plateau band (text, a date or empty).
@@ -296,6 +299,8 @@ pub struct TrendView {
     pub weigh_ins: Series,
     /// Mean rate of change over the 28 days ending each day, kg/d.
     pub weight_slope_28d: Option<Series>,
+    /// Trend weight on each week's last day in the trend's span, kg (weekly).
+    pub weight_trend_weekly: Option<Series>,
     /// Probability that the current plateau's mean slope lies in the band.
     pub plateau_confidence: Option<f64>,
     /// Day the trend entered the plateau band (current plateau).
@@ -346,6 +351,8 @@ impl ModuleView for TrendView {
             weight_slope: r.series(WEIGHT_SLOPE)?,
             weigh_ins: r.series(WEIGH_INS)?,
             weight_slope_28d: r.optional(WEIGHT_SLOPE_28D, || r.series(WEIGHT_SLOPE_28D))?,
+            weight_trend_weekly: r
+                .optional(WEIGHT_TREND_WEEKLY, || r.series(WEIGHT_TREND_WEEKLY))?,
             plateau_confidence: r
                 .optional(PLATEAU_CONFIDENCE, || r.scalar(PLATEAU_CONFIDENCE))?
                 .flatten(),
@@ -384,6 +391,9 @@ impl ModuleView for TrendView {
         w.series(&self.weight_slope);
         w.series(&self.weigh_ins);
         if let Some(s) = &self.weight_slope_28d {
+            w.series(s);
+        }
+        if let Some(s) = &self.weight_trend_weekly {
             w.series(s);
         }
         w.scalar(PLATEAU_CONFIDENCE, self.plateau_confidence);
@@ -431,6 +441,7 @@ impl Default for TrendView {
             weight_slope: empty_series(WEIGHT_SLOPE, "kg/d", "daily", "Weight change per day"),
             weigh_ins: empty_series(WEIGH_INS, "kg", "irregular", "Weigh-ins"),
             weight_slope_28d: None,
+            weight_trend_weekly: None,
             plateau_confidence: None,
             plateau_onset: None,
             regain_kg: Interval::default(),
