@@ -350,8 +350,8 @@ pub fn simulate_in(seed: u64, index: usize, days: usize, sc: &Scenario) -> Perso
     };
     let lean0 = bw0 - fat0 - ecf0 - GLYCOGEN_WEIGHT_FACTOR * G0;
     // Resting energy differs from Mifflin's prediction person to person (the equation predicts
-    // within ±10 % for most adults; Frankenfield et al. 2005, J Am Diet Assoc 105:775, from
-    // memory).
+    // within ±10 % for more adults than any other equation; Frankenfield et al. 2005, J Am Diet
+    // Assoc 105:775).
     let rmr0 = mifflin(male, bw0, height_cm, age) * (1.0 + r.gauss(0.0, sc.rmr_sd));
     // Physical activity level across FAO/WHO/UNU 2004 "sedentary" to "active".
     let pal = r.range(sc.pal.0, sc.pal.1);

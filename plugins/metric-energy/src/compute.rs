@@ -65,8 +65,8 @@ const PLATEAU_BAND_FRACTION_PER_WEEK: f64 = 0.0025;
 /// (program choice).
 pub(crate) const PAL_SD: f64 = 0.15;
 /// Relative SD of measured resting energy around the equation's prediction: Mifflin–St Jeor
-/// predicts within ±10 % for about 80 % of adults (Frankenfield et al. 2005, J Am Diet Assoc
-/// 105:775; from memory), i.e. SD ≈ 8 %.
+/// predicts within ±10 % for more adults than any other equation (Frankenfield et al. 2005, J Am
+/// Diet Assoc 105:775, a systematic review); for about 80 % of them (from memory), i.e. SD ≈ 8 %.
 const RMR_REL_SD: f64 = 0.08;
 /// Default prior share of intake left out of food logs, and its SD (settings
 /// `underreporting_prior_percent`, `underreporting_sd_percent`): self-reported intake falls

@@ -61,7 +61,8 @@ impl MetricModule for EnergyModule {
                 2.5,
                 "Prior centre of the physical activity level (TEE/RMR) before logged exercise \
                  (SD 0.15; updated from the food logs); 1.6 is the middle of the 'low active' \
-                 band of NASEM 2023 (1.53–1.68) and of free-living adults measured with doubly \
+                 band of NASEM 2023 for adults (1.53–1.68; Dietary Reference Intakes for Energy, \
+                 doi:10.17226/26818) and of free-living adults measured with doubly \
                  labelled water (Black et al. 1996, Eur J Clin Nutr 50:72; from memory)",
             ),
             SettingSpec::number(
