@@ -70,8 +70,9 @@ pub(crate) const PAL_SD: f64 = 0.15;
 const RMR_REL_SD: f64 = 0.08;
 /// Default prior share of intake left out of food logs, and its SD (settings
 /// `underreporting_prior_percent`, `underreporting_sd_percent`): self-reported intake falls
-/// short of doubly-labelled-water expenditure by 10–45 % in most studies (Trabulsi & Schoeller
-/// 2001, Am J Physiol Endocrinol Metab 281:E891; from memory), centre 20 %, SD 12 points.
+/// short of doubly-labelled-water expenditure in every kind of self-report instrument
+/// (Trabulsi & Schoeller 2001, Am J Physiol Endocrinol Metab 281:E891, a review of such
+/// studies), by 10–45 % in most of them (range from memory), centre 20 %, SD 12 points.
 pub(crate) const UNDERREPORT_PRIOR: f64 = 0.20;
 pub(crate) const UNDERREPORT_SD: f64 = 0.12;
 /// Relative SDs of the linearised model's ρ (energy density of weight change; with body fat
@@ -92,7 +93,9 @@ const INTAKE_DRIFT_PER_DAY: f64 = 3.0;
 const FADE_SHARE: f64 = 1.0;
 /// Default of `max_sustained_intake_x_rmr`: the most energy a person can take in and absorb,
 /// sustained over weeks, as a multiple of resting energy: the alimentary limit on sustained energy budgets, about 2.5 × BMR for efforts of
-/// weeks or more (Thurber et al. 2019, Sci Adv 5:eaaw0341; from memory). An implied intake
+/// weeks or more (Thurber et al. 2019, "Extreme events reveal an alimentary limit on sustained
+/// maximal human energy expenditure", Sci Adv 5:eaaw0341: ~2.5 × BMR from overfeeding and
+/// endurance data). An implied intake
 /// above it is a rise the gut could not have supplied: a step in the weigh-ins (another scale,
 /// clothing, a typing error) or fluid, not tissue. Applied to the 28-day window and, as a
 /// program choice, to each week of the weekly table (a week's implied intake is read off the

@@ -97,7 +97,7 @@ pub fn fast_weight(logged: &Logged) -> Vec<f64> {
 /// person with overweight; Hall et al. 2011, *Lancet* 378:826, web appendix; values from
 /// memory). Logged intake is a share (1 − u) of true intake; u = 0.2 is the middle of
 /// doubly-labelled-water studies' under-reporting (Trabulsi & Schoeller 2001, *Am J Physiol
-/// Endocrinol Metab* 281:E891; from memory). Person-specific factors (their u, their body
+/// Endocrinol Metab* 281:E891, a review of them; the middle value from memory). Person-specific factors (their u, their body
 /// fat) are left to the likelihood ([`INTAKE_GAIN_FACTORS`]).
 pub const INTAKE_GAIN_KG_PER_KCAL: f64 = (1.0 - 0.1 - 0.14) / ((1.0 - 0.2) * 7700.0);
 
