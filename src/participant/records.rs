@@ -390,6 +390,132 @@ struct RawWeight {
     value: f64,
     unit: WeightUnit,
     source: Option<String>,
+    /// How a decimal stone value is written (`Plain` for other units).
+    stone: StoneDecimals,
+}
+
+/// How a weight in decimal stones is written, from its digits: people and some apps write
+/// stones and pounds as `14.12` (14 st 12 lb = 208 lb), which as decimal stones is 14.12 st =
+/// 197.68 lb, 4.7 kg less. The two readings differ whenever the two decimals are 01 to 13.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum StoneDecimals {
+    /// Not two decimals that could be pounds: `14`, `14.5`, `14.00` (the same either way), or
+    /// another unit.
+    Plain,
+    /// Two decimals 01–13 (`14.12`, `14.05`): these pounds, or hundredths of a stone.
+    LikeStonesPounds(u8),
+    /// Decimals that cannot be pounds (`14.50`, `14.125`), and how many: the file writes
+    /// decimal stones.
+    Decimal(usize),
+}
+
+impl StoneDecimals {
+    /// Classifies the number as written in the cell (`14.12`, `14,12` with a decimal comma).
+    fn of(number: &str) -> StoneDecimals {
+        let n = number.trim();
+        let Some(at) = n.rfind(['.', ',']) else {
+            return StoneDecimals::Plain;
+        };
+        let frac = &n[at + 1..];
+        if !frac.bytes().all(|b| b.is_ascii_digit()) {
+            return StoneDecimals::Plain;
+        }
+        match frac.len() {
+            2 => match frac.parse::<u8>() {
+                Ok(0) | Err(_) => StoneDecimals::Plain,
+                Ok(lb) if f64::from(lb) < LB_PER_STONE => StoneDecimals::LikeStonesPounds(lb),
+                Ok(_) => StoneDecimals::Decimal(2),
+            },
+            k @ 3.. => StoneDecimals::Decimal(k),
+            _ => StoneDecimals::Plain,
+        }
+    }
+}
+
+/// Settles the stone values that could be stones and pounds ([`StoneDecimals`]). A file with
+/// a value stones and pounds cannot write (`14.50`) writes decimal stones: all are read so,
+/// with a note. Otherwise the file cannot say which it means, and a wrong guess moves a weight
+/// by up to 4.7 kg: when at least half of its rows are written so, the file is not used (an
+/// error at the first; `None`), else each such row is dropped with a warning. The messages
+/// give both readings and how to write the weight so that it reads one way.
+fn settle_stone_decimals(
+    rows: Vec<Parsed<RawWeight>>,
+    table: &Table,
+    ctx: &FileCtx,
+    diags: &mut Vec<Diagnostic>,
+) -> Option<Vec<Parsed<RawWeight>>> {
+    let like = |r: &Parsed<RawWeight>| match r.value.stone {
+        StoneDecimals::LikeStonesPounds(lb) => Some(lb),
+        _ => None,
+    };
+    let n_like = rows.iter().filter(|r| like(r).is_some()).count();
+    if n_like == 0 {
+        return Some(rows);
+    }
+    let col = table.column("weight");
+    let decimal = rows.iter().find_map(|r| match r.value.stone {
+        StoneDecimals::Decimal(k) => Some((r, k)),
+        _ => None,
+    });
+    if let Some((d, k)) = decimal {
+        table.recognised(format!(
+            "two-decimal stones as decimal stones (`14.12` = 14.12 st), as `{:.k$}` at line {} cannot be stones and pounds",
+            d.value.value, d.line
+        ));
+        return Some(rows);
+    }
+    // Both readings in words, and the weight as written.
+    let readings = |r: &Parsed<RawWeight>, lb: u8| {
+        let st = r.value.value.trunc();
+        let as_st_lb = Mass::from_lb(st * LB_PER_STONE + f64::from(lb)).kg();
+        let as_decimal = Mass::from_lb(r.value.value * LB_PER_STONE).kg();
+        (
+            format!(
+                "`{st:.0}.{lb:02}` could be {st:.0} st {lb} lb ({as_st_lb:.1} kg) or {st:.0}.{lb:02} decimal stones ({as_decimal:.1} kg)"
+            ),
+            format!(
+                "stones and pounds with both units (`{st:.0} st {lb} lb`), or the weight in kg or lb"
+            ),
+            format!("`{st:.0}.{lb:02}` in stones"),
+        )
+    };
+    const HOW: &str = "write stones and pounds with both units (`14 st 12 lb`, `14st 12lb`); two decimals up to .13 cannot tell decimal stones from them, so write decimal stones in kg or lb";
+    if n_like * 2 >= rows.len() {
+        let first = rows.iter().find(|r| like(r).is_some()).expect("n_like > 0");
+        let lb = like(first).expect("found above");
+        let (both, expected, found) = readings(first, lb);
+        diags.push(
+            ctx.error(format!(
+                "the stone weight {both}; {n_like} of the file's {} weights are written so and none shows which is meant, so the file is not used",
+                rows.len()
+            ))
+            .at(first.line, col)
+            .field("weight")
+            .expected(expected)
+            .found(found)
+            .hint(HOW),
+        );
+        return None;
+    }
+    let mut kept = Vec::with_capacity(rows.len() - n_like);
+    for r in rows {
+        let Some(lb) = like(&r) else {
+            kept.push(r);
+            continue;
+        };
+        let (both, expected, found) = readings(&r, lb);
+        diags.push(
+            ctx.warning(format!(
+                "the stone weight {both}, and the file's other weights do not show which; the row is dropped"
+            ))
+            .at(r.line, col)
+            .field("weight")
+            .expected(expected)
+            .found(found)
+            .hint(HOW),
+        );
+    }
+    Some(kept)
 }
 
 impl SameValue for RawWeight {
@@ -652,11 +778,20 @@ pub fn parse_weights(
             value,
             unit,
             source: c.text("source").map(str::to_string),
+            stone: if unit == WeightUnit::St {
+                StoneDecimals::of(match split_mass(&raw) {
+                    Some(WrittenMass::One(n, _)) => n,
+                    _ => &raw,
+                })
+            } else {
+                StoneDecimals::Plain
+            },
         })
     });
     if !settle_unit_conflicts(&conflicts, declared_rows, ctx, diags) {
         return None;
     }
+    let rows = settle_stone_decimals(rows, &table, ctx, diags)?;
     let rows: Vec<Parsed<RawWeight>> = rows
         .into_iter()
         .map(|mut r| {

@@ -517,6 +517,113 @@ fn stones_and_pounds_are_read_exactly() {
     assert!((w[0].weight.kg() - 203.0 * 0.453_592_37).abs() < 1e-9);
 }
 
+/// `14.12 st` was read as 14.12 decimal stones (89.7 kg) without a word, beside `14 st 12 lb`
+/// read as 94.3 kg in the same file: people and some apps write stones and pounds as `14.12`.
+/// Two decimals 01–13 are read as decimal stones only when the file shows it writes them so;
+/// otherwise the rows (or the file, when they are half of it or more) are refused, naming both
+/// readings.
+#[test]
+fn two_decimal_stones_that_could_be_stones_and_pounds_are_not_guessed() {
+    // 14 st 12 lb = 208 lb exactly; 208 × 0.45359237 = 94.34721296 kg.
+    let (w, diags) = weights("date,weight\n2026-04-01,14 st 12 lb\n2026-04-02,14st 12lb\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    for x in &w {
+        assert!(
+            (x.weight.kg() - 94.347_212_96).abs() < 1e-9,
+            "{}",
+            x.weight.kg()
+        );
+    }
+
+    // A file of them, some beside stones and pounds written out: not used.
+    let text = "date,weight\n2026-04-01,14.12 st\n2026-04-03,14.10 st\n2026-04-05,14 st 12 lb\n2026-04-07,14st 12lb\n2026-04-09,14.08 st\n";
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none(), "the file is not used");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let e = &diags[0];
+    assert_eq!(e.severity, Severity::Error);
+    assert_eq!(
+        (e.file.as_str(), e.line, e.column),
+        ("participants/P1/weights.csv", Some(2), Some(2))
+    );
+    assert_eq!(
+        e.message,
+        "the stone weight `14.12` could be 14 st 12 lb (94.3 kg) or 14.12 decimal stones (89.7 kg); 3 of the file's 5 weights are written so and none shows which is meant, so the file is not used"
+    );
+    assert_eq!(
+        e.expected.as_deref(),
+        Some("stones and pounds with both units (`14 st 12 lb`), or the weight in kg or lb")
+    );
+    assert_eq!(e.found.as_deref(), Some("`14.12` in stones"));
+    // The same under a `unit` column, and with a decimal comma.
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date;weight;unit\n2026-04-01;14,05;st\n2026-04-02;92,1;kg\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none(), "{diags:#?}");
+    assert!(diags[0].message.starts_with("the stone weight `14.05` could be 14 st 5 lb (91.2 kg) or 14.05 decimal stones (89.2 kg)"), "{}", diags[0]);
+
+    // One among decimal stones with one decimal: that row is dropped, at its cell.
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-01,14.12,st\n2026-04-02,14.5,st\n2026-04-03,14.4,st\n2026-04-04,14.3,st\n",
+    );
+    assert_eq!(w.len(), 3);
+    assert!((w[0].weight.kg() - 14.5 * 14.0 * 0.453_592_37).abs() < 1e-9);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(
+        (diags[0].severity, diags[0].line, diags[0].column),
+        (Severity::Warning, Some(2), Some(2))
+    );
+    assert!(
+        diags[0]
+            .message
+            .ends_with("and the file's other weights do not show which; the row is dropped"),
+        "{}",
+        diags[0]
+    );
+
+    // A file with two decimals stones and pounds cannot write (`.50`) writes decimal stones:
+    // `14.12` is then 14.12 st = 197.68 lb, with a note.
+    let table_text = "Date,Weight (st)\n2026-04-01,14.12\n2026-04-02,14.50\n2026-04-03,14.00\n";
+    let (w, diags) = weights(table_text);
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 3);
+    assert!(
+        (w[0].weight.kg() - 197.68 * 0.453_592_37).abs() < 1e-9,
+        "{}",
+        w[0].weight.kg()
+    );
+    let c = ctx("weights.csv");
+    let mut diags = Vec::new();
+    parse_weights(
+        table_text,
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.iter().any(|n| n.contains("two-decimal stones as decimal stones (`14.12` = 14.12 st), as `14.50` at line 3 cannot be stones and pounds")),
+        "{notes:?}"
+    );
+    // `14.00` is the same either way: no question.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,14.00,st\n");
+    assert!(diags.is_empty() && w.len() == 1, "{diags:#?}");
+}
+
 #[test]
 fn bom_and_crlf_are_accepted_silently() {
     let (w, diags) =
