@@ -125,7 +125,31 @@ pub fn write_report_with(
     }
     let mut kinds: std::collections::BTreeMap<(Severity, String), Kind<'_>> =
         std::collections::BTreeMap::new();
+    // The warnings of a participant that cannot be used are not listed by kind (without
+    // `verbose`): an enrolment date after the program's end put 83 "before enrolment" warnings
+    // of one person ahead of the one error that mattered and of everyone else's warnings. They
+    // are counted in one line, and the participant's details give them per file.
+    let unusable: std::collections::BTreeSet<&str> = report
+        .participants
+        .iter()
+        .filter(|p| p.data.is_none())
+        .map(|p| p.id.as_str())
+        .collect();
+    let folded = |d: &Diagnostic| {
+        !opts.verbose
+            && d.severity == Severity::Warning
+            && d.participant
+                .as_deref()
+                .is_some_and(|p| unusable.contains(p))
+    };
+    let mut folded_count = 0;
+    let mut folded_people: std::collections::BTreeSet<&str> = Default::default();
     for d in report.all_diagnostics() {
+        if folded(d) {
+            folded_count += 1;
+            folded_people.extend(d.participant.as_deref());
+            continue;
+        }
         let k = kinds.entry(kind_of(d)).or_insert(Kind {
             count: 0,
             participants: Default::default(),
@@ -139,7 +163,7 @@ pub fn write_report_with(
             k.examples.push(d);
         }
     }
-    if !kinds.is_empty() {
+    if !kinds.is_empty() || folded_count > 0 {
         let mut list: Vec<_> = kinds.into_iter().collect();
         // Errors first, then the most frequent.
         list.sort_by(|a, b| {
@@ -180,6 +204,23 @@ pub fn write_report_with(
                 "  … {more} more kind{} ({rest} diagnostic{}) in the details below",
                 plural(more),
                 plural(rest)
+            )?;
+        }
+        if folded_count > 0 {
+            let n = folded_people.len();
+            let who: Vec<&str> = folded_people
+                .iter()
+                .take(EXAMPLES_PER_KIND)
+                .copied()
+                .collect();
+            let etc = if n > who.len() { ", …" } else { "" };
+            writeln!(
+                out,
+                "  warning ×{folded_count} in the files of {n} participant{} that cannot be used \
+                 ({}{etc}): not listed here, as they matter once their errors are fixed \
+                 (`check --verbose` lists them)",
+                plural(n),
+                who.join(", ")
             )?;
         }
     }
@@ -261,8 +302,12 @@ pub fn write_report_with(
         };
         writeln!(out)?;
         writeln!(out, "{}: {status}{counts}", p.id)?;
+        // Errors first: the one that makes a participant unusable is what to fix first, and it
+        // came after every row warning of the files read before profile.yaml.
+        let mut diags: Vec<&Diagnostic> = p.diagnostics.iter().collect();
+        diags.sort_by_key(|d| d.severity != Severity::Error);
         if opts.verbose {
-            for d in &p.diagnostics {
+            for d in &diags {
                 writeln!(out, "{d}")?;
             }
             for n in &p.notes {
@@ -274,7 +319,15 @@ pub fn write_report_with(
         let mut seen: std::collections::BTreeMap<(Severity, String, &str), Vec<&Diagnostic>> =
             std::collections::BTreeMap::new();
         let mut order = Vec::new();
-        for d in &p.diagnostics {
+        // An unusable participant's warnings are summed up in one line after its errors.
+        let unusable = p.data.is_none() && e > 0;
+        let mut held: std::collections::BTreeMap<&str, usize> = Default::default();
+        for d in diags {
+            if unusable && d.severity == Severity::Warning {
+                let file = d.file.rsplit('/').next().unwrap_or(&d.file);
+                *held.entry(file).or_default() += 1;
+                continue;
+            }
             let (sev, k) = kind_of(d);
             let key = (sev, k, d.file.as_str());
             let list = seen.entry(key.clone()).or_default();
@@ -304,6 +357,20 @@ pub fn write_report_with(
                     lines.join(", ")
                 )?;
             }
+        }
+        if !held.is_empty() {
+            let per_file: Vec<String> = held.iter().map(|(f, n)| format!("{f} {n}")).collect();
+            writeln!(
+                out,
+                "  … and {w} warning{} not listed ({}): the participant cannot be used until the \
+                 error{} above {} fixed, and some warnings may follow from {}; `check --verbose` \
+                 lists them",
+                plural(w),
+                per_file.join(", "),
+                plural(e),
+                if e == 1 { "is" } else { "are" },
+                if e == 1 { "it" } else { "them" },
+            )?;
         }
     }
     if clean > 0 {
@@ -577,5 +644,91 @@ mod tests {
         fs::remove_dir(tmp.path().join("participants")).ok();
         let (_, out) = run(tmp.path());
         assert!(out.contains("summary by kind (1 kind):"), "{out}");
+    }
+
+    /// A participant enrolled after the program's end had every row of every file dropped as
+    /// "before enrolment": `check` printed 83 such warnings, by kind and then in the details,
+    /// before the one error that made the participant unusable.
+    #[test]
+    fn an_unusable_participant_shows_its_error_first_and_its_warnings_in_one_line() {
+        let tmp = program_dir();
+        let late = profile("P1").replace("enrolled: 2026-04-01", "enrolled: 2026-11-02");
+        let mut weights = String::from("date,weight,unit\n");
+        for d in 1..=25 {
+            weights.push_str(&format!("2026-05-{d:02},80,kg\n"));
+        }
+        add(
+            tmp.path(),
+            "P1",
+            &[
+                ("profile.yaml", &late),
+                ("weights.csv", &weights),
+                (
+                    "intake.csv",
+                    "date,kcal\n2026-05-01,1800\n2026-05-02,1900\n",
+                ),
+            ],
+        );
+        add(
+            tmp.path(),
+            "P2",
+            &[
+                ("profile.yaml", &profile("P2")),
+                (
+                    "weights.csv",
+                    "date,weight,unit\n2026-04-02,80,kg\n2026-04-03,x,kg\n",
+                ),
+            ],
+        );
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::PARTICIPANT_ERRORS, "{out}");
+        // 20 warnings + "… and 5 more like this" in weights.csv, 2 in intake.csv.
+        assert!(
+            out.contains("checked 2 participants: 1 usable, 1 with errors; 1 error, 24 warnings"),
+            "{out}"
+        );
+        // The summary: the error, the other participant's warning, then one line for P1's.
+        assert!(out.contains("summary by kind (2 kinds):\n  error ×1, 1 participant: enrolment date 2026-11-02 is after the program ends (2026-09-30); the participant cannot be used\n      at participants/P1/profile.yaml:5\n  warning ×1, 1 participant: not a number in `weight`"), "{out}");
+        assert!(
+            out.contains("  warning ×23 in the files of 1 participant that cannot be used (P1): not listed here, as they matter once their errors are fixed (`check --verbose` lists them)\n"),
+            "{out}"
+        );
+        // The details: the error first, the warnings in one line per participant.
+        assert!(
+            out.contains("\nP1: not usable (1 error, 23 warnings)\nerror: participants/P1/profile.yaml:5: enrolment date"),
+            "{out}"
+        );
+        assert!(
+            out.contains("  … and 23 warnings not listed (intake.csv 2, weights.csv 21): the participant cannot be used until the error above is fixed, and some warnings may follow from it; `check --verbose` lists them\n"),
+            "{out}"
+        );
+        assert!(!out.contains("is before enrolment"), "{out}");
+        // The usable participant's warning is still given in full.
+        assert!(
+            out.contains("warning: participants/P2/weights.csv:3:2: not a number in `weight`"),
+            "{out}"
+        );
+
+        // --verbose lists everything, the error first.
+        let mut verbose = Vec::new();
+        let opts = CheckOptions {
+            json: false,
+            verbose: true,
+        };
+        run_check_with(tmp.path(), as_of(), &opts, &mut verbose);
+        let verbose = String::from_utf8(verbose).unwrap();
+        let p1 = &verbose[verbose.find("\nP1: not usable").expect(&verbose)..];
+        let error_at = p1.find("error: participants/P1/profile.yaml:5").unwrap();
+        let first_warning = p1.find("warning: participants/P1/").unwrap();
+        assert!(error_at < first_warning, "{verbose}");
+        assert_eq!(
+            p1.matches("is before enrolment (2026-11-02)").count(),
+            23,
+            "{verbose}"
+        );
+        assert!(
+            verbose.contains("warning ×20, 1 participant: date 2026-05-01 is before enrolment"),
+            "{verbose}"
+        );
     }
 }

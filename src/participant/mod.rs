@@ -786,6 +786,10 @@ pub fn load_opened(
         enrolled: profile.as_ref().map(|p| p.enrolled),
         withdrew: profile.as_ref().and_then(|p| p.withdrew),
         as_of,
+        height_cm: profile.as_ref().map(|p| p.height.cm()),
+        high_bmi_checked: profile
+            .as_ref()
+            .is_some_and(|p| p.flags.iter().any(|f| f == profile::HIGH_BMI_CHECKED_FLAG)),
     };
     // Only the profile (and the folder) can make a participant unusable: a CSV file that
     // cannot be used is an error for that file, and the participant is reported without it.

@@ -79,6 +79,42 @@ pub struct Window {
     pub withdrew: Option<NaiveDate>,
     /// The run's "today": later data are future data and dropped.
     pub as_of: NaiveDate,
+    /// The profile's height, cm, when known: weigh-ins that give no adult's BMI in the unit
+    /// they declare, but do in the other, are in the other unit.
+    pub height_cm: Option<f64>,
+    /// The profile's `high-bmi-checked` flag: weigh-ins with a BMI of
+    /// [`HIGH_BMI`] or more are this person's, in the unit written.
+    pub high_bmi_checked: bool,
+}
+
+/// A BMI, kg/m², at and above which weigh-ins read as kilograms are taken for pounds unless the
+/// profile says they were checked (`high-bmi-checked`): pounds written as kilograms are 2.2
+/// times the weight, so anyone over a BMI of 27 in pounds is over 60 as kilograms, and BMI 60
+/// and over is rare enough to be a category of its own in bariatric surgery ("super-super
+/// obesity"; from memory).
+pub const HIGH_BMI: f64 = 60.0;
+
+/// A BMI, kg/m², below which weigh-ins are no adult's in a weight-management program (WHO:
+/// under 16 is severe thinness).
+pub const LOW_BMI: f64 = 16.0;
+
+impl Window {
+    /// The BMI of `kg` at the profile's height.
+    fn bmi(&self, kg: f64) -> Option<f64> {
+        self.height_cm.map(|h| kg / (h / 100.0).powi(2))
+    }
+
+    /// Whether `kg` is a likely weight for this person: a BMI from [`LOW_BMI`] to under
+    /// [`HIGH_BMI`] (any, above `LOW_BMI`, when the profile says a high BMI was checked);
+    /// `None` without a height.
+    fn likely_kg(&self, kg: f64) -> Option<bool> {
+        let high = if self.high_bmi_checked {
+            f64::INFINITY
+        } else {
+            HIGH_BMI
+        };
+        self.bmi(kg).map(|b| (LOW_BMI..high).contains(&b))
+    }
 }
 
 /// A parsed row before the whole-file checks.
@@ -390,6 +426,132 @@ struct RawWeight {
     value: f64,
     unit: WeightUnit,
     source: Option<String>,
+    /// How a decimal stone value is written (`Plain` for other units).
+    stone: StoneDecimals,
+}
+
+/// How a weight in decimal stones is written, from its digits: people and some apps write
+/// stones and pounds as `14.12` (14 st 12 lb = 208 lb), which as decimal stones is 14.12 st =
+/// 197.68 lb, 4.7 kg less. The two readings differ whenever the two decimals are 01 to 13.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum StoneDecimals {
+    /// Not two decimals that could be pounds: `14`, `14.5`, `14.00` (the same either way), or
+    /// another unit.
+    Plain,
+    /// Two decimals 01–13 (`14.12`, `14.05`): these pounds, or hundredths of a stone.
+    LikeStonesPounds(u8),
+    /// Decimals that cannot be pounds (`14.50`, `14.125`), and how many: the file writes
+    /// decimal stones.
+    Decimal(usize),
+}
+
+impl StoneDecimals {
+    /// Classifies the number as written in the cell (`14.12`, `14,12` with a decimal comma).
+    fn of(number: &str) -> StoneDecimals {
+        let n = number.trim();
+        let Some(at) = n.rfind(['.', ',']) else {
+            return StoneDecimals::Plain;
+        };
+        let frac = &n[at + 1..];
+        if !frac.bytes().all(|b| b.is_ascii_digit()) {
+            return StoneDecimals::Plain;
+        }
+        match frac.len() {
+            2 => match frac.parse::<u8>() {
+                Ok(0) | Err(_) => StoneDecimals::Plain,
+                Ok(lb) if f64::from(lb) < LB_PER_STONE => StoneDecimals::LikeStonesPounds(lb),
+                Ok(_) => StoneDecimals::Decimal(2),
+            },
+            k @ 3.. => StoneDecimals::Decimal(k),
+            _ => StoneDecimals::Plain,
+        }
+    }
+}
+
+/// Settles the stone values that could be stones and pounds ([`StoneDecimals`]). A file with
+/// a value stones and pounds cannot write (`14.50`) writes decimal stones: all are read so,
+/// with a note. Otherwise the file cannot say which it means, and a wrong guess moves a weight
+/// by up to 4.7 kg: when at least half of its rows are written so, the file is not used (an
+/// error at the first; `None`), else each such row is dropped with a warning. The messages
+/// give both readings and how to write the weight so that it reads one way.
+fn settle_stone_decimals(
+    rows: Vec<Parsed<RawWeight>>,
+    table: &Table,
+    ctx: &FileCtx,
+    diags: &mut Vec<Diagnostic>,
+) -> Option<Vec<Parsed<RawWeight>>> {
+    let like = |r: &Parsed<RawWeight>| match r.value.stone {
+        StoneDecimals::LikeStonesPounds(lb) => Some(lb),
+        _ => None,
+    };
+    let n_like = rows.iter().filter(|r| like(r).is_some()).count();
+    if n_like == 0 {
+        return Some(rows);
+    }
+    let col = table.column("weight");
+    let decimal = rows.iter().find_map(|r| match r.value.stone {
+        StoneDecimals::Decimal(k) => Some((r, k)),
+        _ => None,
+    });
+    if let Some((d, k)) = decimal {
+        table.recognised(format!(
+            "two-decimal stones as decimal stones (`14.12` = 14.12 st), as `{:.k$}` at line {} cannot be stones and pounds",
+            d.value.value, d.line
+        ));
+        return Some(rows);
+    }
+    // Both readings in words, and the weight as written.
+    let readings = |r: &Parsed<RawWeight>, lb: u8| {
+        let st = r.value.value.trunc();
+        let as_st_lb = Mass::from_lb(st * LB_PER_STONE + f64::from(lb)).kg();
+        let as_decimal = Mass::from_lb(r.value.value * LB_PER_STONE).kg();
+        (
+            format!(
+                "`{st:.0}.{lb:02}` could be {st:.0} st {lb} lb ({as_st_lb:.1} kg) or {st:.0}.{lb:02} decimal stones ({as_decimal:.1} kg)"
+            ),
+            format!(
+                "stones and pounds with both units (`{st:.0} st {lb} lb`), or the weight in kg or lb"
+            ),
+            format!("`{st:.0}.{lb:02}` in stones"),
+        )
+    };
+    const HOW: &str = "write stones and pounds with both units (`14 st 12 lb`, `14st 12lb`); two decimals up to .13 cannot tell decimal stones from them, so write decimal stones in kg or lb";
+    if n_like * 2 >= rows.len() {
+        let first = rows.iter().find(|r| like(r).is_some()).expect("n_like > 0");
+        let lb = like(first).expect("found above");
+        let (both, expected, found) = readings(first, lb);
+        diags.push(
+            ctx.error(format!(
+                "the stone weight {both}; {n_like} of the file's {} weights are written so and none shows which is meant, so the file is not used",
+                rows.len()
+            ))
+            .at(first.line, col)
+            .field("weight")
+            .expected(expected)
+            .found(found)
+            .hint(HOW),
+        );
+        return None;
+    }
+    let mut kept = Vec::with_capacity(rows.len() - n_like);
+    for r in rows {
+        let Some(lb) = like(&r) else {
+            kept.push(r);
+            continue;
+        };
+        let (both, expected, found) = readings(&r, lb);
+        diags.push(
+            ctx.warning(format!(
+                "the stone weight {both}, and the file's other weights do not show which; the row is dropped"
+            ))
+            .at(r.line, col)
+            .field("weight")
+            .expected(expected)
+            .found(found)
+            .hint(HOW),
+        );
+    }
+    Some(kept)
 }
 
 impl SameValue for RawWeight {
@@ -652,11 +814,20 @@ pub fn parse_weights(
             value,
             unit,
             source: c.text("source").map(str::to_string),
+            stone: if unit == WeightUnit::St {
+                StoneDecimals::of(match split_mass(&raw) {
+                    Some(WrittenMass::One(n, _)) => n,
+                    _ => &raw,
+                })
+            } else {
+                StoneDecimals::Plain
+            },
         })
     });
     if !settle_unit_conflicts(&conflicts, declared_rows, ctx, diags) {
         return None;
     }
+    let rows = settle_stone_decimals(rows, &table, ctx, diags)?;
     let rows: Vec<Parsed<RawWeight>> = rows
         .into_iter()
         .map(|mut r| {
@@ -780,22 +951,123 @@ pub fn parse_weights(
     }
     // Each conversion above rests on the ones before it, so a stretch that never ends runs to
     // the end of the file. When it holds more weigh-ins than the file before it, the earlier
-    // level is the odd one out (the first weeks of someone else's weigh-ins, 0.45 times this
-    // person's, turned every later weigh-in of 99 kg into 45 kg): the stretch is left as
-    // written, for the trend's step check to name.
+    // level may as well be the odd one out (the first weeks of someone else's weigh-ins, 0.45
+    // times this person's, turned every later weigh-in of 99 kg into 45 kg). The height
+    // decides when only one of the two readings of the stretch is a likely weight for it
+    // ([`Window::likely_kg`]); otherwise the file is not used: left as written, pounds under
+    // `kg` had put a 165 cm woman's weigh-ins at 161 kg and her "regain" at 90 kg, with no
+    // word from `check`.
     let open_end = order
         .iter()
         .rev()
         .take_while(|&&j| from_previous[j])
         .count();
     if open_end > rows.len() - open_end {
-        for &j in &order[rows.len() - open_end..] {
-            kg[j] = written[j];
-            from_previous[j] = false;
+        let split = rows.len() - open_end;
+        let (head, tail) = order.split_at(split);
+        let mut before: Vec<f64> = head.iter().map(|&j| kg[j]).collect();
+        let mut as_written: Vec<f64> = tail.iter().map(|&j| written[j]).collect();
+        let mut converted: Vec<f64> = tail.iter().map(|&j| kg[j]).collect();
+        let (before, as_written, converted) = (
+            median(&mut before),
+            median(&mut as_written),
+            median(&mut converted),
+        );
+        let first = &rows[tail[0]];
+        let height = w
+            .height_cm
+            .map_or(String::new(), |h| format!(" at a height of {h:.0} cm"));
+        match (w.likely_kg(as_written), w.likely_kg(converted)) {
+            // Converted: the warnings of each row stand.
+            (Some(false), Some(true)) => {}
+            (Some(true), Some(false)) => {
+                for &j in tail {
+                    kg[j] = written[j];
+                    from_previous[j] = false;
+                }
+                by_previous.retain(|(r, _)| from_previous[*r]);
+                let start = &rows[head[0]];
+                diags.push(
+                    ctx.warning(format!(
+                        "the {split} weigh-in{} before line {} (median {before:.1} kg) are about {:.2} times the {open_end} from there to the end of the file (median {as_written:.1} kg), which alone are a likely weight{height}; all are read as written",
+                        if split == 1 { "" } else { "s" },
+                        first.line,
+                        before / as_written
+                    ))
+                    .at(start.line, wcol)
+                    .field("weight")
+                    .expected("weigh-ins of one person in the unit their rows declare")
+                    .found(format!("a level of {before:.1} kg until line {}", first.line))
+                    .hint("check whether the first weigh-ins are this person's and in the unit their rows declare; correct or remove them"),
+                );
+            }
+            (likely_written, _) => {
+                let why = match likely_written {
+                    None => "the profile gives no height to tell which is right".to_string(),
+                    Some(true) => format!("both readings are likely weights{height}"),
+                    Some(false) => format!("neither reading is a likely weight{height}"),
+                };
+                diags.push(
+                    ctx.error(format!(
+                        "the weigh-ins from line {} to the end of the file ({open_end} of {}, median {as_written:.1} kg as written) are about {:.2} times the {split} before them (median {before:.1} kg): either they are in the other unit ({converted:.1} kg), or the ones before them are not this person's or in the other unit, and {why}; the file is not used",
+                        first.line,
+                        rows.len(),
+                        as_written / before
+                    ))
+                    .at(first.line, wcol)
+                    .field("weight")
+                    .expected("weigh-ins of one person in the unit their rows declare")
+                    .found(format!(
+                        "`{}` with unit `{}` after weigh-ins around {before:.1} kg",
+                        first.value.value,
+                        first.value.unit.mass_unit().symbol()
+                    ))
+                    .hint("correct the unit of the rows in the other unit (or convert their values), or remove the rows that are not this person's"),
+                );
+                return None;
+            }
         }
-        by_previous.retain(|(r, _)| from_previous[*r]);
     }
     diags.extend(by_previous.into_iter().map(|(_, d)| d));
+
+    // A whole file of pounds under `kg` has no earlier weigh-in to be compared with: a BMI of
+    // [`HIGH_BMI`] or more that would be a likely one in pounds says it is pounds. It is
+    // refused rather than converted: a real weight at such a BMI would then be read as less
+    // than half of it; the profile's `high-bmi-checked` says it is real.
+    let read_kg: Vec<usize> = (0..rows.len())
+        .filter(|&j| rows[j].value.unit == WeightUnit::Kg && !swapped[j])
+        .collect();
+    if read_kg.len() * 2 > rows.len() {
+        let mut v: Vec<f64> = read_kg.iter().map(|&j| kg[j]).collect();
+        let med = median(&mut v);
+        let as_lb = Mass::from_lb(med).kg();
+        if w.likely_kg(med) == Some(false)
+            && w.bmi(med).is_some_and(|b| b >= HIGH_BMI)
+            && w.likely_kg(as_lb) == Some(true)
+        {
+            let first = &rows[read_kg[0]];
+            let (h, bmi, bmi_lb) = (
+                w.height_cm.unwrap_or_default(),
+                w.bmi(med).unwrap_or_default(),
+                w.bmi(as_lb).unwrap_or_default(),
+            );
+            diags.push(
+                ctx.error(format!(
+                    "the weigh-ins read as kilograms (median {med:.1} kg, {} of {}) give a BMI of {bmi:.1} at the profile's height of {h:.0} cm; as pounds ({as_lb:.1} kg) they would give {bmi_lb:.1}: they look like pounds under `kg`, and the file is not used",
+                    read_kg.len(),
+                    rows.len()
+                ))
+                .at(first.line, wcol)
+                .field("weight")
+                .expected(format!(
+                    "weigh-ins in the unit their rows declare (as kilograms, a BMI under {HIGH_BMI} at {h:.0} cm)"
+                ))
+                .found(format!("`{}` with unit `kg`", first.value.value))
+                .hint("if the weights are pounds, correct the `unit` column or the header to `lb`; if they are kilograms and the person's BMI is that high, add `high-bmi-checked` to the `flags` of profile.yaml; check the height too"),
+            );
+            return None;
+        }
+    }
 
     if let Some(d) = mixed_people(&rows, &kg, wcol, ctx) {
         diags.push(d);

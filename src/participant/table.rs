@@ -329,6 +329,7 @@ impl Table {
                 match order {
                     NumericOrder::DayFirst => "dates such as `13/05/2026` read day first, the only order that reads every date of the file",
                     NumericOrder::MonthFirst => "dates such as `05/13/2026` read month first, the only order that reads every date of the file",
+                    NumericOrder::YearFirst => "dates such as `26-05-13` read year first (2026-05-13), the only order that puts every date of the file within the program",
                 }
                 .to_string(),
             );
@@ -1433,14 +1434,24 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
         || format.contains("%I")
         || format.contains("%T")
         || format.contains("%R");
+    // chrono's `%Y` reads any number of digits: `26-04-03` was the year 26 (and `03-04-26` the
+    // year 3), every row dropped as "before enrolment". A year under 1000 is no such reading;
+    // the date is left to the two-digit-year readings ([`numeric_order`]).
+    let full = |d: NaiveDate| !format.contains("%Y") || d.year() >= 1000;
     if has_time {
-        if let Ok(t) = DateTime::parse_from_str(with_offset, format) {
+        if let Ok(t) = DateTime::parse_from_str(with_offset, format)
+            && full(t.date_naive())
+        {
             return Some(stamped(t));
         }
-        if let Ok(dt) = NaiveDateTime::parse_from_str(s, format) {
+        if let Ok(dt) = NaiveDateTime::parse_from_str(s, format)
+            && full(dt.date())
+        {
             return Some(local(dt));
         }
-    } else if let Ok(d) = NaiveDate::parse_from_str(s, format) {
+    } else if let Ok(d) = NaiveDate::parse_from_str(s, format)
+        && full(d)
+    {
         return Some(When {
             date: d,
             time: None,
@@ -1467,7 +1478,7 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
             }
         }
     }
-    written_out(s, format == "%Y-%m-%d").map(|(date, time)| When {
+    written_out(s, format == "%Y-%m-%d", opts.program_span).map(|(date, time)| When {
         date,
         time,
         from_utc: false,
@@ -1480,7 +1491,15 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
 /// (`day_first_dots`), day first with dots (`01.05.2026`, the dotted form of the countries that
 /// write it, always day first: common practice; a file whose dotted dates turn out month first
 /// is refused, see [`dotted_month_first`]). A time may follow (`07:12`, `07:12:30`, `7:12 AM`).
-fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<NaiveTime>)> {
+///
+/// A two-digit year (`1-May-26`, as spreadsheets write `d-mmm-yy`) is read in the one century
+/// that puts the date within `span` (give or take [`SERIAL_DATE_MARGIN_DAYS`], as for numeric
+/// dates), and not at all without one; `%Y` alone had read it as the year 26.
+fn written_out(
+    s: &str,
+    day_first_dots: bool,
+    span: Option<(NaiveDate, NaiveDate)>,
+) -> Option<(NaiveDate, Option<NaiveTime>)> {
     const NAMED: [&str; 11] = [
         "%B %d, %Y",
         "%b %d, %Y",
@@ -1517,14 +1536,33 @@ fn written_out(s: &str, day_first_dots: bool) -> Option<(NaiveDate, Option<Naive
     } else {
         return None;
     };
+    // `%Y` reads `1 May 26` as the year 26.
+    // (A weekday was checked against the year 26: such a date is not placed.)
+    let full = |d: NaiveDate, f: &str| -> Option<NaiveDate> {
+        if d.year() >= 1000 {
+            return Some(d);
+        }
+        if !named || d.year() >= 100 || f.contains("%a") || f.contains("%A") {
+            return None;
+        }
+        let (start, end) = span?;
+        let margin = chrono::Duration::days(SERIAL_DATE_MARGIN_DAYS);
+        let mut fits = (start.year() / 100 - 1..=end.year() / 100 + 1)
+            .filter_map(|c| d.with_year(c * 100 + d.year()))
+            .filter(|x| *x >= start - margin && *x <= end + margin);
+        match (fits.next(), fits.next()) {
+            (Some(x), None) => Some(x),
+            _ => None,
+        }
+    };
     for f in dates {
         if let Ok(d) = NaiveDate::parse_from_str(s, f) {
-            return Some((d, None));
+            return full(d, f).map(|d| (d, None));
         }
         for sep in [" ", ", "] {
             for t in TIMES {
                 if let Ok(dt) = NaiveDateTime::parse_from_str(s, &format!("{f}{sep}{t}")) {
-                    return Some((dt.date(), Some(dt.time())));
+                    return full(dt.date(), f).map(|d| (d, Some(dt.time())));
                 }
             }
         }
@@ -1540,10 +1578,37 @@ pub enum NumericOrder {
     DayFirst,
     /// Month, day, year.
     MonthFirst,
+    /// Two-digit year, month, day (`26-05-13`), as some devices write it.
+    YearFirst,
 }
 
-/// The first number, the second, the year, the separator of a numeric date, and whether the
-/// year was written with two digits (`05/01/26`).
+impl NumericOrder {
+    const ALL: [NumericOrder; 3] = [
+        NumericOrder::DayFirst,
+        NumericOrder::MonthFirst,
+        NumericOrder::YearFirst,
+    ];
+
+    fn words(self) -> &'static str {
+        match self {
+            NumericOrder::DayFirst => "day first",
+            NumericOrder::MonthFirst => "month first",
+            NumericOrder::YearFirst => "year first",
+        }
+    }
+
+    /// The `input.date_format` that reads this order with two-digit years.
+    fn short_format(self, sep: char) -> String {
+        match self {
+            NumericOrder::DayFirst => format!("%d{sep}%m{sep}%y"),
+            NumericOrder::MonthFirst => format!("%m{sep}%d{sep}%y"),
+            NumericOrder::YearFirst => format!("%y{sep}%m{sep}%d"),
+        }
+    }
+}
+
+/// The first number, the second, the last (the year unless year first), the separator of a
+/// numeric date, and whether the last was written with one or two digits (`05/01/26`).
 type NumericParts = (u32, u32, i32, char, bool);
 
 /// The date of numeric parts read in `order`. A two-digit year is read in the one century that
@@ -1554,9 +1619,12 @@ fn place(
     order: NumericOrder,
     span: Option<(NaiveDate, NaiveDate)>,
 ) -> Option<NaiveDate> {
-    let (day, month) = match order {
-        NumericOrder::DayFirst => (a, b),
-        NumericOrder::MonthFirst => (b, a),
+    let (day, month, y) = match order {
+        NumericOrder::DayFirst => (a, b, y),
+        NumericOrder::MonthFirst => (b, a, y),
+        // A two-digit year first, the day last: only with a short last part.
+        NumericOrder::YearFirst if short => (u32::try_from(y).ok()?, b, i32::try_from(a).ok()?),
+        NumericOrder::YearFirst => return None,
     };
     if !short {
         return NaiveDate::from_ymd_opt(y, month, day);
@@ -1572,9 +1640,9 @@ fn place(
     }
 }
 
-/// The (first, second, year, separator, two-digit year) of `dd/mm/yyyy`-like text (one or two
-/// digits for the first two, slashes or dashes, a year of four digits or two), before any
-/// time.
+/// The (first, second, last, separator, short last part) of `dd/mm/yyyy`-like text (one or two
+/// digits for the first two, slashes or dashes, a last part of four digits, or of one or two
+/// (`26-4-3` is year first)), before any time.
 fn numeric_parts(s: &str) -> Option<NumericParts> {
     let day = s.split([' ', 'T']).next()?;
     let sep = if day.contains('/') { '/' } else { '-' };
@@ -1585,7 +1653,7 @@ fn numeric_parts(s: &str) -> Option<NumericParts> {
     let digits = |t: &str, n: std::ops::RangeInclusive<usize>| {
         n.contains(&t.len()) && t.bytes().all(|c| c.is_ascii_digit())
     };
-    if !(digits(a, 1..=2) && digits(b, 1..=2) && (digits(y, 4..=4) || digits(y, 2..=2))) {
+    if !(digits(a, 1..=2) && digits(b, 1..=2) && (digits(y, 4..=4) || digits(y, 1..=2))) {
         return None;
     }
     Some((
@@ -1593,7 +1661,7 @@ fn numeric_parts(s: &str) -> Option<NumericParts> {
         b.parse().ok()?,
         y.parse().ok()?,
         sep,
-        y.len() == 2,
+        y.len() <= 2,
     ))
 }
 
@@ -1622,53 +1690,66 @@ fn numeric_order(
         return Ok(None);
     };
     let span = opts.program_span;
-    let all = |order: NumericOrder| {
-        dates
+    // The orders that read every such date; orders that give every one the same date (`05/05/26`
+    // either way, `26-05-26` year or day first in 2026) are one reading.
+    let mut fitting: Vec<NumericOrder> = Vec::new();
+    for order in NumericOrder::ALL {
+        let dates_of = |o: NumericOrder| {
+            dates
+                .iter()
+                .map(|(_, _, p)| place(*p, o, span))
+                .collect::<Option<Vec<NaiveDate>>>()
+        };
+        let Some(these) = dates_of(order) else {
+            continue;
+        };
+        if fitting
             .iter()
-            .all(|(_, _, p)| place(*p, order, span).is_some())
-    };
-    let day_first = all(NumericOrder::DayFirst);
-    let month_first = all(NumericOrder::MonthFirst);
+            .all(|o| dates_of(*o).as_ref() != Some(&these))
+        {
+            fitting.push(order);
+        }
+    }
     let dated = table
         .rows
         .iter()
         .filter(|r| table.get(r, "date").is_some())
         .count();
     let short = dates.iter().any(|(_, _, p)| p.4);
-    match (day_first, month_first) {
-        (true, false) => Ok(Some(NumericOrder::DayFirst)),
-        (false, true) => Ok(Some(NumericOrder::MonthFirst)),
+    let within = match span {
+        Some((a, b)) => {
+            format!("within the program ({a} to {b}, give or take {SERIAL_DATE_MARGIN_DAYS} days)")
+        }
+        None => "within the program".to_string(),
+    };
+    let sep = dates[0].2.3;
+    match fitting.as_slice() {
+        [one] => Ok(Some(*one)),
         // Two-digit years that no one order puts within the program, in a file of such dates:
         // which dates they are cannot be told, and dropping every row one by one would hide
         // it. Refused at the first date that gives it away.
-        (false, false) if short && dates.len() == dated => {
+        [] if short && dates.len() == dated => {
             let unplaced = dates.iter().find(|(_, _, p)| {
-                place(*p, NumericOrder::DayFirst, span).is_none()
-                    && place(*p, NumericOrder::MonthFirst, span).is_none()
+                NumericOrder::ALL
+                    .iter()
+                    .all(|o| place(*p, *o, span).is_none())
             });
-            let within = match span {
-                Some((a, b)) => format!(
-                    "within the program ({a} to {b}, give or take {SERIAL_DATE_MARGIN_DAYS} days)"
-                ),
-                None => "within the program".to_string(),
-            };
             let (row, found, why) = match unplaced {
                 Some((r, s, _)) => (
                     *r,
                     *s,
                     format!(
-                        "read day first or month first, in any century, `{s}` is no date {within}"
+                        "read day, month or year first, in any century, `{s}` is no date {within}"
                     ),
                 ),
                 None => (
                     first_row,
                     first,
                     format!(
-                        "neither day first nor month first puts every date of the file {within}"
+                        "no one order (day, month or year first) puts every date of the file {within}"
                     ),
                 ),
             };
-            let sep = dates[0].2.3;
             Err(Box::new(
                 ctx.error(format!(
                     "the dates have two-digit years, and {why}, so which dates they are cannot be told; the file is not used"
@@ -1678,15 +1759,45 @@ fn numeric_order(
                 .expected(format!("dates with four-digit years (`2026-05-01`), or two-digit years that fall {within} in one reading only"))
                 .found(format!("`{found}`"))
                 .hint(format!(
-                    "export the dates with four-digit years (or as ISO 8601), or set `input.date_format: \"%d{sep}%m{sep}%y\"` or `\"%m{sep}%d{sep}%y\"` in program.yaml"
+                    "export the dates with four-digit years (or as ISO 8601), or set `input.date_format: \"{}\"`, `\"{}\"` or `\"{}\"` in program.yaml",
+                    NumericOrder::DayFirst.short_format(sep),
+                    NumericOrder::MonthFirst.short_format(sep),
+                    NumericOrder::YearFirst.short_format(sep)
                 )),
             ))
         }
-        (false, false) => Ok(None),
+        [] => Ok(None),
         // Among other dates, the few that cannot be told are warned about one by one.
-        (true, true) if dates.len() < dated => Ok(None),
-        (true, true) => {
-            let sep = dates[0].2.3;
+        _ if dates.len() < dated => Ok(None),
+        [a, b, ..] if short && (*a == NumericOrder::YearFirst || *b == NumericOrder::YearFirst) => {
+            // The first date the two readings put on different days.
+            let (row, found, da, db) = dates
+                .iter()
+                .find_map(|(r, s, p)| {
+                    let (da, db) = (place(*p, *a, span)?, place(*p, *b, span)?);
+                    (da != db).then_some((*r, *s, da, db))
+                })
+                .expect("two readings that differ differ at some date");
+            Err(Box::new(
+                ctx.error(format!(
+                    "the dates have two-digit years and read within the program in more than one order: `{found}` is {da} read {} and {db} read {}, so its dates cannot be read without a guess; the file is not used",
+                    a.words(),
+                    b.words()
+                ))
+                .at(row.line, table.column("date"))
+                .field("date")
+                .expected("dates with four-digit years (`2026-05-01`), or the order set in program.yaml")
+                .found(format!("`{found}`"))
+                .hint(format!(
+                    "export the dates with four-digit years (or as ISO 8601), or set `input.date_format: \"{}\"` ({}) or `\"{}\"` ({}) in program.yaml",
+                    a.short_format(sep),
+                    a.words(),
+                    b.short_format(sep),
+                    b.words()
+                )),
+            ))
+        }
+        _ => {
             let year = if short { "%y" } else { "%Y" };
             Err(Box::new(
                 ctx.error(format!(
@@ -1931,10 +2042,11 @@ impl Cells<'_> {
                 let other = ["%Y-%m-%d", "%d/%m/%Y", "%m/%d/%Y", "%d.%m.%Y", "%Y/%m/%d"]
                     .into_iter()
                     .find(|f| {
+                        let full = |d: &str| {
+                            NaiveDate::parse_from_str(d, f).is_ok_and(|x| x.year() >= 1000)
+                        };
                         *f != self.opts.date_format
-                            && (NaiveDate::parse_from_str(s, f).is_ok()
-                                || s.split_once(' ')
-                                    .is_some_and(|(d, _)| NaiveDate::parse_from_str(d, f).is_ok()))
+                            && (full(s) || s.split_once(' ').is_some_and(|(d, _)| full(d)))
                     });
                 let hint = match other {
                     Some(f) => format!(
@@ -3000,6 +3112,92 @@ mod tests {
         let (got, diags) = dates("date,weight,unit\n05/18/2031,90,kg\n");
         assert!(diags.is_empty(), "{diags:?}");
         assert_eq!(got.unwrap(), ["2031-05-18"]);
+    }
+
+    /// `26-04-03` (two-digit year first, as some devices write it) was read by `%Y` as the
+    /// year 26, and `03-04-26` as the year 3: every row dropped as "before enrolment", a
+    /// message that named the wrong cause. `1-May-26` (a spreadsheet's `d-mmm-yy`) the same.
+    /// Such dates are read in the one order and century that put them within the program, or
+    /// the file is refused at the date that shows it, with both readings.
+    #[test]
+    fn two_digit_years_first_are_placed_or_refused_never_read_as_the_year_26() {
+        let d = |s: &str| NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap();
+        let opts = CsvOptions {
+            program_span: Some((d("2026-04-01"), d("2026-09-30"))),
+            ..CsvOptions::default()
+        };
+        let dates = |text: &str| {
+            let (t, diags) = read(text, &opts);
+            let got = t.map(|t| {
+                let ctx = FileCtx::new("P1", "w.csv");
+                let mut d2 = Vec::new();
+                let v: Vec<String> = t
+                    .rows
+                    .iter()
+                    .map(|row| {
+                        let c = Cells {
+                            table: &t,
+                            row,
+                            ctx: &ctx,
+                            opts: &opts,
+                        };
+                        c.when("date", &mut d2).unwrap().date.to_string()
+                    })
+                    .collect();
+                assert!(d2.is_empty(), "{d2:?}");
+                v
+            });
+            (got, diags)
+        };
+        // Year first: 2026-04-03 is the only reading within the program (day first would be
+        // 26 April 2003, month first has no 26th month).
+        let (got, diags) = dates(
+            "date,weight,unit\n26-04-03,90,kg\n26-04-05,89.5,kg\n26-4-8,89,kg\n26/04/10,89,kg\n",
+        );
+        assert!(diags.is_empty(), "{diags:?}");
+        assert_eq!(
+            got.unwrap(),
+            ["2026-04-03", "2026-04-05", "2026-04-08", "2026-04-10"]
+        );
+        // `26-04-25` is 2026-04-25 year first and 2025-04-26 day first (within the year's
+        // margin before the start): with no other date to tell, refused at it, both named.
+        let (got, diags) = dates("date,weight,unit\n26-04-25,90,kg\n26-05-25,89.5,kg\n");
+        assert!(got.is_none());
+        assert_eq!(diags.len(), 1, "{diags:?}");
+        assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(1)));
+        assert_eq!(
+            diags[0].message,
+            "the dates have two-digit years and read within the program in more than one order: `26-04-25` is 2025-04-26 read day first and 2026-04-25 read year first, so its dates cannot be read without a guess; the file is not used"
+        );
+        assert!(
+            diags[0].hint.as_deref().unwrap().contains(
+                "`input.date_format: \"%d-%m-%y\"` (day first) or `\"%y-%m-%d\"` (year first)"
+            ),
+            "{}",
+            diags[0]
+        );
+        // ... but one date that reads only year first (`26-04-15`: 2015 day first) tells.
+        let (got, diags) = dates("date,weight,unit\n26-04-25,90,kg\n26-04-15,89.5,kg\n");
+        assert!(diags.is_empty(), "{diags:?}");
+        assert_eq!(got.unwrap(), ["2026-04-25", "2026-04-15"]);
+        // `03-04-26`: day or month first (3 April or 4 March 2026), not the year 3.
+        let (got, diags) = dates("date,weight,unit\n03-04-26,90,kg\n05-04-26,89.5,kg\n");
+        assert!(got.is_none());
+        assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(1)));
+        assert!(
+            diags[0]
+                .message
+                .contains("whether its day or its month comes first"),
+            "{}",
+            diags[0]
+        );
+        // A month's name with a two-digit year, in the program's century.
+        let (got, diags) = dates("date,weight,unit\n1-May-26,90,kg\n\"May 3, 26\",89.5,kg\n");
+        assert!(diags.is_empty(), "{diags:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01", "2026-05-03"]);
+        // No century puts `1-May-99` within the program: not a date (the row's warning).
+        assert!(parse_when("1-May-99", &opts).is_none());
+        assert!(parse_when("26-04-03", &CsvOptions::default()).is_none());
     }
 
     #[test]

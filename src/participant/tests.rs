@@ -449,3 +449,44 @@ fn an_enrolment_after_the_program_ends_is_an_error_at_its_line() {
     let lp = load_participant(&p, &dir, as_of());
     assert!(lp.data.is_some(), "{:#?}", lp.diagnostics);
 }
+
+#[test]
+fn the_profile_height_and_high_bmi_flag_reach_the_weights_reader() {
+    // 180 cm: a median of 199.6 "kg" is a BMI of 61.6, and as pounds (90.5 kg) one of 27.9.
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights: &[u8] =
+        b"date,weight,unit\n2026-04-02,200.0,kg\n2026-04-09,199.6,kg\n2026-04-16,199.0,kg\n";
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", PROFILE.as_bytes()),
+            ("weights.csv", weights),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    let data = lp.data.expect("the participant is used, without the file");
+    assert!(data.weights.is_empty());
+    let e = &lp.diagnostics[0];
+    assert_eq!(
+        (e.severity, e.file.as_str(), e.line, e.column),
+        (
+            crate::diag::Severity::Error,
+            "participants/P1/weights.csv",
+            Some(2),
+            Some(2)
+        )
+    );
+    assert!(
+        e.message
+            .contains("give a BMI of 61.6 at the profile's height of 180 cm"),
+        "{e}"
+    );
+    // Checked by the team: read as written.
+    let flagged = format!("{PROFILE}flags: [High BMI checked]\n");
+    fs::write(dir.path.join("profile.yaml"), flagged).unwrap();
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
+    assert_eq!(lp.data.unwrap().weights[0].weight.kg(), 200.0);
+}

@@ -796,6 +796,8 @@ mod readers {
                 enrolled: chrono::NaiveDate::from_ymd_opt(2026, 4, 1),
                 withdrew: None,
                 as_of: chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap(),
+                height_cm: None,
+                high_bmi_checked: false,
             };
             let file = "participants/P-1/x.csv";
             let ctx = FileCtx::new("P-1", file);

@@ -10,6 +10,8 @@ fn window() -> Window {
         enrolled: Some(d(2026, 4, 1)),
         withdrew: None,
         as_of: d(2026, 12, 1),
+        height_cm: None,
+        high_bmi_checked: false,
     }
 }
 
@@ -172,25 +174,74 @@ fn a_stretch_of_pounds_under_kg_is_converted_reading_by_reading() {
 /// each 99 was about 2.2 times the five before it as read, and since those had been turned
 /// into 45 kg one after another, every weigh-in to the end of the file was read as pounds and
 /// the person reported at 45 kg. A stretch running to the end of the file that holds most of
-/// it is left as written now; pounds for the last weeks of a longer file are still converted.
+/// it is read as the height says (see `a_file_of_pounds_under_kg_is_never_taken_for_kilograms`
+/// for the other way); pounds for the last weeks of a longer file are still converted.
 #[test]
 fn a_stretch_to_the_end_of_the_file_is_converted_only_when_it_is_the_smaller_part() {
     let day =
         |i: i64| chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap() + chrono::Duration::days(i);
-    let file = |first: i64, kg_of: &dyn Fn(i64) -> f64| {
+    let text = |first: i64, kg_of: &dyn Fn(i64) -> f64| {
         let mut text = String::from("date,weight,unit\n");
         for i in 0..first {
             text.push_str(&format!("{},{:.1},kg\n", day(i), kg_of(i)));
         }
-        weights(&text)
+        text
     };
-    let (w, diags) = file(80, &|i| if i < 20 { 45.0 } else { 99.0 });
+    let file = |first: i64, kg_of: &dyn Fn(i64) -> f64| weights(&text(first, kg_of));
+    // At 175 cm, 99 kg is a BMI of 32.3 and 45 kg one of 14.7: the stretch is read as written,
+    // with a warning at the first of the odd weigh-ins before it.
+    let tall = Window {
+        height_cm: Some(175.0),
+        ..window()
+    };
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        &text(80, &|i| if i < 20 { 45.0 } else { 99.0 }),
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &tall,
+        &mut diags,
+    )
+    .expect("usable");
     assert_eq!(w.len(), 80);
-    // The weigh-ins of the last 60 days as written, none converted.
     for x in &w[20..] {
         assert_eq!(x.weight.kg(), 99.0, "{}: {diags:#?}", x.date);
     }
-    assert_eq!(diags.len(), 0, "{diags:#?}");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(
+        (diags[0].severity, diags[0].line, diags[0].column),
+        (Severity::Warning, Some(2), Some(2))
+    );
+    assert_eq!(
+        diags[0].message,
+        "the 20 weigh-ins before line 22 (median 45.0 kg) are about 0.45 times the 60 from there to the end of the file (median 99.0 kg), which alone are a likely weight at a height of 175 cm; all are read as written"
+    );
+    // Without a height nothing tells which part is wrong: the file is not used.
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        &text(80, &|i| if i < 20 { 45.0 } else { 99.0 }),
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none());
+    assert_eq!(
+        (diags.len(), diags[0].line, diags[0].column),
+        (1, Some(22), Some(2))
+    );
+    assert!(
+        diags[0].message.starts_with("the weigh-ins from line 22 to the end of the file (60 of 80, median 99.0 kg as written) are about 2.20 times the 20 before them (median 45.0 kg)"),
+        "{}",
+        diags[0]
+    );
+    assert!(
+        diags[0].message.ends_with(
+            "and the profile gives no height to tell which is right; the file is not used"
+        ),
+        "{}",
+        diags[0]
+    );
     // 50 days in kg, then 20 in pounds to the end: converted, each with a warning.
     let (w, diags) = file(70, &|i| {
         let kg = 90.0 - 0.05 * i as f64;
@@ -205,6 +256,119 @@ fn a_stretch_to_the_end_of_the_file_is_converted_only_when_it_is_the_smaller_par
         );
     }
     assert_eq!(diags.len(), 20, "{diags:#?}");
+}
+
+/// A whole file of pounds under `kg` was read as kilograms without a word: a 165 cm woman of
+/// about 74 kg at 161–165 kg. The height tells: at 160 cm, as kilograms a BMI of 64, as pounds
+/// one of 29.
+/// Weeks of kilograms followed by pounds to the end (the larger part) were left as written
+/// with no warning either.
+#[test]
+fn a_file_of_pounds_under_kg_is_never_taken_for_kilograms() {
+    let day =
+        |i: i64| chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap() + chrono::Duration::days(i);
+    let read = |text: &str, w: &Window| {
+        let mut diags = Vec::new();
+        let out = parse_weights(
+            text,
+            &CsvOptions::default(),
+            &ctx("weights.csv"),
+            w,
+            &mut diags,
+        );
+        (out, diags)
+    };
+    // 30 weigh-ins of 75 kg falling 0.03 kg a day, written in pounds under `kg`.
+    let lb = |i: i64| (75.0 - 0.03 * i as f64) / 0.453_592_37;
+    let mut all_lb = String::from("date,weight,unit\n");
+    for i in 0..30 {
+        all_lb.push_str(&format!("{},{:.1},kg\n", day(2 * i), lb(2 * i)));
+    }
+    let small = Window {
+        height_cm: Some(160.0),
+        ..window()
+    };
+    let (w, diags) = read(&all_lb, &small);
+    assert!(w.is_none(), "the file is not used");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let e = &diags[0];
+    assert_eq!(
+        (e.severity, e.line, e.column),
+        (Severity::Error, Some(2), Some(2))
+    );
+    assert_eq!(
+        e.message,
+        "the weigh-ins read as kilograms (median 163.4 kg, 30 of 30) give a BMI of 63.8 at the profile's height of 160 cm; as pounds (74.1 kg) they would give 29.0: they look like pounds under `kg`, and the file is not used"
+    );
+    assert_eq!(e.found.as_deref(), Some("`165.3` with unit `kg`"));
+    // The same weigh-ins under `lb` are read, and so are they as kilograms when the profile
+    // says such a BMI was checked.
+    let (w, diags) = read(&all_lb.replace(",kg", ",lb"), &small);
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert!((w.unwrap()[0].weight.kg() - 165.3 * 0.453_592_37).abs() < 1e-9);
+    let checked = Window {
+        high_bmi_checked: true,
+        ..small
+    };
+    let (w, diags) = read(&all_lb, &checked);
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.unwrap()[0].weight.kg(), 165.3);
+    // 74 kg in kilograms: nothing to say.
+    let mut kg = String::from("date,weight,unit\n");
+    for i in 0..30 {
+        kg.push_str(&format!(
+            "{},{:.1},kg\n",
+            day(2 * i),
+            75.0 - 0.06 * i as f64
+        ));
+    }
+    let (w, diags) = read(&kg, &small);
+    assert!(diags.is_empty() && w.unwrap().len() == 30, "{diags:#?}");
+
+    // Two weeks in kilograms, then pounds under `kg` to the end: at 160 cm only the converted
+    // reading is a likely weight (as written, a BMI of 63.6): converted, a warning per row.
+    let mut switched = String::from("date,weight,unit\n");
+    for i in 0..30 {
+        let kg = 75.0 - 0.03 * (2 * i) as f64;
+        let v = if i < 7 { kg } else { kg / 0.453_592_37 };
+        switched.push_str(&format!("{},{v:.1},kg\n", day(2 * i)));
+    }
+    let (w, diags) = read(&switched, &small);
+    let w = w.expect("usable");
+    assert_eq!(diags.len(), 23, "{diags:#?}");
+    assert!(
+        diags
+            .iter()
+            .all(|d| d.message.contains("looks like pounds")),
+        "{diags:#?}"
+    );
+    for (i, x) in w.iter().enumerate() {
+        let kg = 75.0 - 0.03 * (2 * i) as f64;
+        assert!((x.weight.kg() - kg).abs() < 0.06, "{i}: {}", x.weight.kg());
+    }
+    // At 180 cm both readings are likely (BMI 50 or 23): the file is not used, at line 9.
+    let tall = Window {
+        height_cm: Some(180.0),
+        ..window()
+    };
+    let (w, diags) = read(&switched, &tall);
+    assert!(w.is_none());
+    assert_eq!(
+        (diags.len(), diags[0].line, diags[0].severity),
+        (1, Some(9), Severity::Error)
+    );
+    assert!(
+        diags[0].message.contains("about 2.18 times the 7 before them (median 74.8 kg): either they are in the other unit (73.9 kg)"),
+        "{}",
+        diags[0]
+    );
+    assert!(
+        diags[0].message.ends_with(
+            "both readings are likely weights at a height of 180 cm; the file is not used"
+        ),
+        "{}",
+        diags[0]
+    );
 }
 
 #[test]
@@ -323,6 +487,8 @@ fn dates_outside_the_window_are_dropped() {
         enrolled: Some(d(2026, 4, 1)),
         withdrew: Some(d(2026, 8, 31)),
         as_of: d(2026, 12, 1),
+        height_cm: None,
+        high_bmi_checked: false,
     };
     let out = parse_weights(
         "date,weight,unit\n2026-03-31,72,kg\n2026-04-01,72,kg\n2026-09-01,71,kg\n2027-01-01,70,kg\n",
@@ -515,6 +681,113 @@ fn stones_and_pounds_are_read_exactly() {
     let (w, diags) = weights("Date,Weight (st)\n2026-04-01,14.5\n");
     assert!(diags.is_empty(), "{diags:#?}");
     assert!((w[0].weight.kg() - 203.0 * 0.453_592_37).abs() < 1e-9);
+}
+
+/// `14.12 st` was read as 14.12 decimal stones (89.7 kg) without a word, beside `14 st 12 lb`
+/// read as 94.3 kg in the same file: people and some apps write stones and pounds as `14.12`.
+/// Two decimals 01–13 are read as decimal stones only when the file shows it writes them so;
+/// otherwise the rows (or the file, when they are half of it or more) are refused, naming both
+/// readings.
+#[test]
+fn two_decimal_stones_that_could_be_stones_and_pounds_are_not_guessed() {
+    // 14 st 12 lb = 208 lb exactly; 208 × 0.45359237 = 94.34721296 kg.
+    let (w, diags) = weights("date,weight\n2026-04-01,14 st 12 lb\n2026-04-02,14st 12lb\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    for x in &w {
+        assert!(
+            (x.weight.kg() - 94.347_212_96).abs() < 1e-9,
+            "{}",
+            x.weight.kg()
+        );
+    }
+
+    // A file of them, some beside stones and pounds written out: not used.
+    let text = "date,weight\n2026-04-01,14.12 st\n2026-04-03,14.10 st\n2026-04-05,14 st 12 lb\n2026-04-07,14st 12lb\n2026-04-09,14.08 st\n";
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none(), "the file is not used");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let e = &diags[0];
+    assert_eq!(e.severity, Severity::Error);
+    assert_eq!(
+        (e.file.as_str(), e.line, e.column),
+        ("participants/P1/weights.csv", Some(2), Some(2))
+    );
+    assert_eq!(
+        e.message,
+        "the stone weight `14.12` could be 14 st 12 lb (94.3 kg) or 14.12 decimal stones (89.7 kg); 3 of the file's 5 weights are written so and none shows which is meant, so the file is not used"
+    );
+    assert_eq!(
+        e.expected.as_deref(),
+        Some("stones and pounds with both units (`14 st 12 lb`), or the weight in kg or lb")
+    );
+    assert_eq!(e.found.as_deref(), Some("`14.12` in stones"));
+    // The same under a `unit` column, and with a decimal comma.
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date;weight;unit\n2026-04-01;14,05;st\n2026-04-02;92,1;kg\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none(), "{diags:#?}");
+    assert!(diags[0].message.starts_with("the stone weight `14.05` could be 14 st 5 lb (91.2 kg) or 14.05 decimal stones (89.2 kg)"), "{}", diags[0]);
+
+    // One among decimal stones with one decimal: that row is dropped, at its cell.
+    let (w, diags) = weights(
+        "date,weight,unit\n2026-04-01,14.12,st\n2026-04-02,14.5,st\n2026-04-03,14.4,st\n2026-04-04,14.3,st\n",
+    );
+    assert_eq!(w.len(), 3);
+    assert!((w[0].weight.kg() - 14.5 * 14.0 * 0.453_592_37).abs() < 1e-9);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(
+        (diags[0].severity, diags[0].line, diags[0].column),
+        (Severity::Warning, Some(2), Some(2))
+    );
+    assert!(
+        diags[0]
+            .message
+            .ends_with("and the file's other weights do not show which; the row is dropped"),
+        "{}",
+        diags[0]
+    );
+
+    // A file with two decimals stones and pounds cannot write (`.50`) writes decimal stones:
+    // `14.12` is then 14.12 st = 197.68 lb, with a note.
+    let table_text = "Date,Weight (st)\n2026-04-01,14.12\n2026-04-02,14.50\n2026-04-03,14.00\n";
+    let (w, diags) = weights(table_text);
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 3);
+    assert!(
+        (w[0].weight.kg() - 197.68 * 0.453_592_37).abs() < 1e-9,
+        "{}",
+        w[0].weight.kg()
+    );
+    let c = ctx("weights.csv");
+    let mut diags = Vec::new();
+    parse_weights(
+        table_text,
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.iter().any(|n| n.contains("two-decimal stones as decimal stones (`14.12` = 14.12 st), as `14.50` at line 3 cannot be stones and pounds")),
+        "{notes:?}"
+    );
+    // `14.00` is the same either way: no question.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,14.00,st\n");
+    assert!(diags.is_empty() && w.len() == 1, "{diags:#?}");
 }
 
 #[test]
