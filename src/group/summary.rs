@@ -195,7 +195,9 @@ impl Methods {
                  trajectory, n is exact while everyone who started is still weighing in; after \
                  that it is given as a range of {min} values, counted down from the number \
                  started, so that no two weeks' n can be subtracted to count the few who \
-                 stopped in between; a week's mean needs at least {min} people.",
+                 stopped in between, and it is left out where, set against the other \
+                 groups' ranges, it would still narrow such a number; a week's mean needs at \
+                 least {min} people.",
                 min.saturating_sub(1)
             ),
             small_groups: format!(
@@ -1249,6 +1251,53 @@ pub(super) fn build(
         }
     }
     let no_lines = BTreeSet::new();
+    let no_weeks = BTreeSet::new();
+    let unbanded = if suppress {
+        let mut sections: Vec<WeekSection> = Vec::new();
+        let mut of_draft: Vec<*const Draft> = Vec::new();
+        let mut add = |d: &Draft, sections: &mut Vec<WeekSection>| -> Option<usize> {
+            let raw = d.raw.as_ref().filter(|_| d.shown())?;
+            let lines = withdrawn.get(&(d as *const Draft));
+            let started = d
+                .cells
+                .get(&Kind::Started)
+                .filter(|&&c| !table.is_suppressed(c))
+                .map(|_| raw.count(Kind::Started));
+            sections.push(WeekSection {
+                started,
+                enrolled: raw.count(Kind::Enrolled),
+                n: weeks
+                    .iter()
+                    .map(|w| raw.weeks.get(w).map_or(0, |v| v.len() as u64))
+                    .collect(),
+                withdrawn: weeks
+                    .iter()
+                    .map(|&w| lines.is_some_and(|l| l.contains(&Line::Week(w))))
+                    .collect(),
+            });
+            of_draft.push(d as *const Draft);
+            Some(sections.len() - 1)
+        };
+        let mut parts: Vec<Vec<usize>> = Vec::new();
+        if add(&program, &mut sections).is_some() {
+            for (_, drafts, _) in &splits {
+                let ids: Vec<usize> = drafts
+                    .iter()
+                    .filter_map(|d| add(d, &mut sections))
+                    .collect();
+                parts.push(ids);
+            }
+        }
+        let dropped = audit_week_bands(&sections, &parts, min);
+        let mut by_draft: HashMap<*const Draft, BTreeSet<u32>> = HashMap::new();
+        for (i, wi) in dropped {
+            let w = *weeks.iter().nth(wi).expect("week index");
+            by_draft.entry(of_draft[i]).or_default().insert(w);
+        }
+        by_draft
+    } else {
+        HashMap::new()
+    };
 
     let finish = |d: &Draft| Section {
         kind: d.kind.clone(),
@@ -1260,9 +1309,10 @@ pub(super) fn build(
         withheld: d.withheld.clone(),
         stats: d.raw.as_ref().filter(|_| d.shown()).map(|raw| {
             let lines = withdrawn.get(&(d as *const Draft)).unwrap_or(&no_lines);
+            let unbanded = unbanded.get(&(d as *const Draft)).unwrap_or(&no_weeks);
             let min = if suppress { min } else { 0 };
             section_stats(
-                raw, &d.cells, &table, &ranges, lines, &weeks, min, confidence,
+                raw, &d.cells, &table, &ranges, lines, &weeks, unbanded, min, confidence,
             )
         }),
     };
@@ -1335,6 +1385,155 @@ fn week_count(n: u64, started: Option<u64>, min: u32) -> (Shown<u64>, bool) {
         },
         true,
     )
+}
+
+/// One shown section's weekly counts, for [`audit_week_bands`].
+struct WeekSection {
+    /// The number started, when printed exactly (the bands' anchor).
+    started: Option<u64>,
+    enrolled: u64,
+    /// True n of each week (in the order of the report's weeks).
+    n: Vec<u64>,
+    /// Whether the sum audit withheld each week's mean.
+    withdrawn: Vec<bool>,
+}
+
+/// The weeks' n that must not be printed although [`week_count`] would print them, as
+/// (section, week index) pairs; `sections[0]` is the program, `parts` the sections of each
+/// split (each split's shown sections count every enrolled person once).
+///
+/// Each section's band is counted down from its own number started, so it protects that
+/// section's shortfall on its own; but the program's n is the sum of each split's sections'
+/// n, and sections that count the same people from different numbers started (a site whose
+/// people all enrolled lately has nobody in the later weeks, so there the program counts
+/// exactly the other sites' people) have bands at different offsets whose intersection can
+/// be one value: program "22–32" and a site's "12–22" gave 22 of the site's 23, one person
+/// who stopped. So, per week, what a reader knows of every section's n — the printed value or
+/// band; else at least `min` when the mean is shown or withheld by the sum audit, else what
+/// the rule leaves hidden; and, the safe side, 0 exactly when the section has nobody that week
+/// (a reader who knows when its people enrolled knows it) — is narrowed by the relations
+/// program = Σ sections of each split (interval propagation, run to its fixed point). A section
+/// whose shortfall from its number started, or whose n, is 1 … min − 1 and left with fewer
+/// than three possible values, loses its printed n; when it prints none, the section of the
+/// same relation with the fewest people started loses its (the program's last). Repeated
+/// until nothing is narrowed.
+fn audit_week_bands(
+    sections: &[WeekSection],
+    parts: &[Vec<usize>],
+    min: u32,
+) -> Vec<(usize, usize)> {
+    let min = u64::from(min);
+    let mut dropped: Vec<(usize, usize)> = Vec::new();
+    if sections.is_empty() || min == 0 {
+        return dropped;
+    }
+    // Only splits whose sections count every enrolled person of the program once.
+    let parts: Vec<&Vec<usize>> = parts
+        .iter()
+        .filter(|p| {
+            !p.is_empty()
+                && p.iter().map(|&i| sections[i].enrolled).sum::<u64>() == sections[0].enrolled
+        })
+        .collect();
+    let weeks = sections[0].n.len();
+    for w in 0..weeks {
+        let mut unprinted: BTreeSet<usize> = BTreeSet::new();
+        loop {
+            let mut b: Vec<(u64, u64)> = sections
+                .iter()
+                .enumerate()
+                .map(|(i, s)| known_week_n(s, w, unprinted.contains(&i), min))
+                .collect();
+            for _ in 0..4 * sections.len() + 4 {
+                let before = b.clone();
+                for p in &parts {
+                    let lo_sum: u64 = p.iter().map(|&i| b[i].0).sum();
+                    let hi_sum: u64 = p.iter().map(|&i| b[i].1).sum();
+                    b[0] = (b[0].0.max(lo_sum), b[0].1.min(hi_sum));
+                    for &i in p.iter() {
+                        let (olo, ohi) = (lo_sum - b[i].0, hi_sum - b[i].1);
+                        b[i] = (
+                            b[i].0.max(b[0].0.saturating_sub(ohi)),
+                            b[i].1.min(b[0].1.saturating_sub(olo)),
+                        );
+                    }
+                }
+                if b == before {
+                    break;
+                }
+            }
+            let narrowed = |i: usize| {
+                let s = &sections[i];
+                let (lo, hi) = b[i];
+                let few = hi < lo + 2;
+                let n = s.n[w];
+                let small_n = (1..min).contains(&n);
+                let small_short = s
+                    .started
+                    .is_some_and(|st| (1..min).contains(&st.saturating_sub(n)));
+                few && (small_n || small_short)
+            };
+            let Some(i) = (0..sections.len()).find(|&i| narrowed(i)) else {
+                break;
+            };
+            let printed = |j: usize| {
+                !unprinted.contains(&j)
+                    && !matches!(
+                        week_count(sections[j].n[w], sections[j].started, min as u32).0,
+                        Shown::Suppressed
+                    )
+            };
+            let next = if printed(i) {
+                Some(i)
+            } else {
+                let mut linked: Vec<usize> = if i == 0 {
+                    parts.iter().flat_map(|p| p.iter().copied()).collect()
+                } else {
+                    parts
+                        .iter()
+                        .filter(|p| p.contains(&i))
+                        .flat_map(|p| p.iter().copied())
+                        .collect()
+                };
+                linked.retain(|&j| j != 0 && printed(j));
+                linked.sort_by_key(|&j| (sections[j].started.unwrap_or(0), j));
+                linked.first().copied().or((printed(0)).then_some(0))
+            };
+            let Some(j) = next else {
+                // Nothing printed is left to take away (the bounds come from the rule alone).
+                break;
+            };
+            unprinted.insert(j);
+            dropped.push((j, w));
+        }
+    }
+    dropped
+}
+
+/// What a reader knows of section `s`'s n in week `w` ([`audit_week_bands`]).
+fn known_week_n(s: &WeekSection, w: usize, unprinted: bool, min: u64) -> (u64, u64) {
+    let n = s.n[w];
+    if n == 0 {
+        return (0, 0);
+    }
+    let top = s.started.unwrap_or(s.enrolled);
+    let (shown, mean_shown) = week_count(n, s.started, min as u32);
+    if !unprinted {
+        match shown {
+            Shown::Value(v) => return (v, v),
+            Shown::Range { lo, hi } => return (lo.max(min), hi),
+            _ => {}
+        }
+    }
+    if mean_shown || s.withdrawn[w] {
+        return (min, top);
+    }
+    // Hidden by the rule: every n the rule would hide (n < min, or a band too narrow).
+    let hidden_top = (0..=top)
+        .rev()
+        .find(|&m| !week_count(m, s.started, min as u32).1)
+        .unwrap_or(0);
+    (0, hidden_top)
 }
 
 /// Links every pair of counts of the release whose people are nested and whose difference is
@@ -1534,6 +1733,7 @@ fn section_stats(
     ranges: &[Option<(u64, u64)>],
     withdrawn: &BTreeSet<Line>,
     weeks: &BTreeSet<u32>,
+    unbanded: &BTreeSet<u32>,
     min: u32,
     confidence: f64,
 ) -> SectionStats {
@@ -1612,7 +1812,10 @@ fn section_stats(
         .map(|&w| {
             let empty = Vec::new();
             let vals = raw.weeks.get(&w).unwrap_or(&empty);
-            let (n, mean_shown) = week_count(vals.len() as u64, started, min);
+            let (mut n, mean_shown) = week_count(vals.len() as u64, started, min);
+            if unbanded.contains(&w) {
+                n = Shown::Suppressed;
+            }
             let h = !mean_shown || withdrawn.contains(&Line::Week(w));
             let mci = stats::mean_ci_t(vals, confidence);
             WeekPoint {
