@@ -853,3 +853,87 @@ fn week_bands_of_sections_counting_the_same_people_do_not_pin_who_stopped() {
         }
     }
 }
+
+/// Monthly releases of one program, each audited against the ledger of the earlier ones. The
+/// first 30 people reach week 20 (5 of them stopped weighing in at week 10, so 25 have a value
+/// there); the people who enrol later have not reached it, and a reader who knows when they
+/// enrolled knows that week 20's people are the same 25 every month, within month 1's 30
+/// started. Bands counted down from each month's number started (30, 46, 60, 69, 81) had
+/// shifted and met at two values (25–26), a shortfall of 4 or 5 from month 1's 30. The attacker
+/// intersects every month's printed n for week 20 with n ≤ month 1's number started (less one
+/// when month 1 printed a band, not 30) and must not narrow the 5 who stopped to fewer than
+/// three possible values.
+#[test]
+fn week_bands_across_monthly_releases_do_not_pin_who_stopped() {
+    let min = 11;
+    let mut months: Vec<Vec<Person>> = Vec::new();
+    let mut people: Vec<Person> = (0..30)
+        .map(|i| {
+            let mut p = person(&format!("F{i:02}"), "Kiln Row", -4.0, true, -3.0);
+            let last = if i < 5 { 10 } else { 24 };
+            p.row.weekly_change_percent = (0..last)
+                .map(|w| (w, -0.25 * f64::from(w) - 0.01 * i as f64))
+                .collect();
+            p
+        })
+        .collect();
+    months.push(people.clone());
+    for (m, joining) in [16, 14, 9, 12].into_iter().enumerate() {
+        for j in 0..joining {
+            let mut p = person(&format!("N{m}{j:02}"), "Kiln Row", -1.0, true, -0.5);
+            p.row.weekly_change_percent = (0..3)
+                .map(|w| (w, -0.2 * f64::from(w) - 0.01 * j as f64))
+                .collect();
+            people.push(p);
+        }
+        months.push(people.clone());
+    }
+    let week = 19; // week 20 since enrolment
+    let truth = 25;
+    let first_started = 30;
+    let read = |rel: &Release| -> Option<(u64, u64)> {
+        let w = rel.report["program"]["stats"]["trajectory"]
+            .as_array()?
+            .iter()
+            .find(|w| w["week"].as_u64() == Some(week))?
+            .clone();
+        read_count(&w["n"])
+    };
+    let attack = |releases: &[Release]| -> (u64, u64) {
+        let mut lo = u64::from(min);
+        let mut hi = first_started;
+        for (i, rel) in releases.iter().enumerate() {
+            if let Some((a, z)) = read(rel) {
+                lo = lo.max(a);
+                hi = hi.min(z);
+                if i == 0 && z < first_started {
+                    hi = hi.min(first_started - 1);
+                }
+            }
+        }
+        (lo, hi)
+    };
+    // Without the fixed partition the months narrow it (shown by the bands of the old rule).
+    let old_band = |s: u64| {
+        let k = (s - truth - 1) / u64::from(min);
+        (s - (k + 1) * u64::from(min), s - 1 - k * u64::from(min))
+    };
+    let (mut olo, mut ohi) = (u64::from(min), first_started - 1);
+    for s in [30, 46, 60, 69, 81] {
+        let (a, z) = old_band(s);
+        olo = olo.max(a);
+        ohi = ohi.min(z);
+    }
+    assert!(ohi < olo + 2, "the old bands met at {olo}–{ohi}");
+    let releases = publish_in_order(&months, min);
+    let (lo, hi) = attack(&releases);
+    assert!(lo <= truth && truth <= hi, "{lo}–{hi}");
+    assert!(
+        hi >= lo + 2,
+        "months together pin week 20's n to {lo}–{hi}: the 5 who stopped"
+    );
+    // The week's mean is still shown every month, and its n at least as a band.
+    for rel in &releases {
+        assert!(read(rel).is_some(), "week 20's n printed");
+    }
+}

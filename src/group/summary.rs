@@ -193,9 +193,9 @@ impl Methods {
                  no hidden count can be worked out from the shown ones, and a share, mean or \
                  interval is hidden when a count it rests on is hidden. In the weekly \
                  trajectory, n is exact while everyone who started is still weighing in; after \
-                 that it is given as a range of {min} values, counted down from the number \
-                 started, so that no two weeks' n can be subtracted to count the few who \
-                 stopped in between, and it is left out where, set against the other \
+                 that it is given as a range on a fixed grid of {min} values, the same for the \
+                 same people in every report, so that no two weeks' or months' n can be \
+                 subtracted to count the few who stopped in between, and it is left out where, set against the other \
                  groups' ranges, it would still narrow such a number; a week's mean needs at \
                  least {min} people.",
                 min.saturating_sub(1)
@@ -938,6 +938,9 @@ pub(super) fn build(
     let mut audit_notes: Vec<AuditNote> = Vec::new();
     let mut published = Published::default();
     let mut withdrawn: HashMap<*const Draft, BTreeSet<Line>> = HashMap::new();
+    // What a reader knows of each shown section's weekly n before it is printed (in the order
+    // of `weeks`), once the counts are settled.
+    let mut week_bounds: HashMap<*const Draft, Vec<WeekBounds>> = HashMap::new();
     if suppress {
         let drafts_of = || {
             std::iter::once(&program)
@@ -1151,6 +1154,34 @@ pub(super) fn build(
                 break;
             }
         }
+        for d in drafts_of() {
+            let raw = d.raw.as_ref().expect("filtered");
+            let started =
+                (!table.is_suppressed(d.cells[&Kind::Started])).then(|| raw.count(Kind::Started));
+            let bounds = weeks
+                .iter()
+                .map(|w| {
+                    let mut b = WeekBounds::open(started, raw.count(Kind::Enrolled));
+                    let set: BTreeSet<u64> = raw
+                        .week_idx
+                        .get(w)
+                        .into_iter()
+                        .flatten()
+                        .map(|&i| tokens[i])
+                        .collect();
+                    for p in &prior_counts {
+                        if set.is_subset(p) {
+                            b.hi = b.hi.min(p.len() as u64 - u64::from(set.len() < p.len()));
+                        }
+                        if p.is_subset(&set) {
+                            b.lo = b.lo.max(p.len() as u64 + u64::from(p.len() < set.len()));
+                        }
+                    }
+                    b
+                })
+                .collect();
+            week_bounds.insert(d as *const Draft, bounds);
+        }
         // Sums: every mean shown with its n, audited with the sums published before.
         let mut facts: Vec<audit::SumFact> = Vec::new();
         let mut person_of: HashMap<u64, u64> = HashMap::new();
@@ -1192,9 +1223,9 @@ pub(super) fn build(
             if shown(Kind::WithOutcome) {
                 lines.push((Line::Completers, 2 + base, changes));
             }
-            let started = shown(Kind::Started).then(|| raw.count(Kind::Started));
             for (&w, idx) in &raw.week_idx {
-                if week_count(idx.len() as u64, started, min).1 {
+                // A week's mean is shown over at least min people (`week_count`).
+                if idx.len() >= min as usize {
                     let vals = &raw.weeks[&w];
                     let atoms = idx
                         .iter()
@@ -1265,6 +1296,10 @@ pub(super) fn build(
                 .map(|_| raw.count(Kind::Started));
             sections.push(WeekSection {
                 started,
+                bounds: week_bounds
+                    .get(&(d as *const Draft))
+                    .cloned()
+                    .unwrap_or_else(|| vec![WeekBounds::open(started, 0); weeks.len()]),
                 enrolled: raw.count(Kind::Enrolled),
                 n: weeks
                     .iter()
@@ -1311,8 +1346,11 @@ pub(super) fn build(
             let lines = withdrawn.get(&(d as *const Draft)).unwrap_or(&no_lines);
             let unbanded = unbanded.get(&(d as *const Draft)).unwrap_or(&no_weeks);
             let min = if suppress { min } else { 0 };
+            let bounds = week_bounds
+                .get(&(d as *const Draft))
+                .map_or(&[][..], Vec::as_slice);
             section_stats(
-                raw, &d.cells, &table, &ranges, lines, &weeks, unbanded, min, confidence,
+                raw, &d.cells, &table, &ranges, lines, &weeks, bounds, unbanded, min, confidence,
             )
         }),
     };
@@ -1336,8 +1374,31 @@ pub(super) fn build(
     (report, published)
 }
 
+/// What a reader can know of one section's n in one week before this release prints it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct WeekBounds {
+    /// The section's number started, when printed exactly.
+    started: Option<u64>,
+    /// Bounds from counts printed exactly in earlier releases (the ledger) whose people
+    /// contain the week's people (`hi`: their number, less one when they are more) or are
+    /// contained in them (`lo`), and from the section's enrolment (`hi`).
+    lo: u64,
+    hi: u64,
+}
+
+impl WeekBounds {
+    /// No knowledge beyond the section's enrolment.
+    fn open(started: Option<u64>, enrolled: u64) -> Self {
+        WeekBounds {
+            started,
+            lo: 0,
+            hi: enrolled,
+        }
+    }
+}
+
 /// How a week of the trajectory prints its number of participants `n`, and whether its mean
-/// may be shown at all, given the section's number started (`None` when that count is hidden).
+/// may be shown at all.
 ///
 /// The weeks' counts fall a few people at a time as people stop weighing in (300, 297, 293,
 /// …), so printed exactly, any two of them, or one of them and the number started, give by
@@ -1346,42 +1407,59 @@ pub(super) fn build(
 /// for nearly every week and, through the relations, most of the report: a clean 300-person
 /// program showed neither its enrolment nor its weight change. So the weeks' counts are not
 /// cells of the suppression at all. A week everyone started reaches prints n exactly (it is the
-/// number started); any other prints the band of width `min` that its shortfall from the number
-/// started lies in — shortfall 1 … min, min + 1 … 2·min, … — so no subtraction from the number
-/// started, from another week or from a band of another section pins a difference. A mean
-/// (with its interval) is shown when n ≥ min and, since a shown mean tells the reader so, the
-/// band cut to n ≥ min still leaves at least three possible values (program choice, as the
-/// range audit of the counts); a 12-person section with 11 in a week would otherwise give "11"
-/// exactly and a shortfall of one. With the number started hidden there is no anchor: n is not
-/// shown, and the mean is shown when n ≥ min. The means themselves go through the sum audit
-/// like every other mean.
-/// `min` 0: no protection (the truth the suppression tests compare against).
-fn week_count(n: u64, started: Option<u64>, min: u32) -> (Shown<u64>, bool) {
+/// number started). Any other prints the cell of a fixed partition that holds n: the values a
+/// reader already knows possible — at least `min` (a shown mean says so), below the number
+/// started, and within what earlier releases printed exactly of people containing or contained
+/// in the week's ([`WeekBounds`]) — cut at the multiples of `min`, a cell of fewer than three
+/// values at either end joined to its neighbour. The cells do not depend on n nor on the
+/// number started beyond those bounds, so the same people give the same cell in every
+/// release: cells counted down from each month's (growing) number started had shifted, and
+/// months together pinned n (bands from 300, 316, 330, 339 and 351 started met at 295). When
+/// the known values are fewer than three, n is not printed (a decision the reader can make
+/// alike). A mean (with its interval) is shown when n ≥ min; the means go through the sum audit
+/// like every other mean. `min` 0: no protection (the truth the suppression tests compare
+/// against).
+fn week_count(n: u64, b: WeekBounds, min: u32) -> (Shown<u64>, bool) {
     if min == 0 {
         return (Shown::Value(n), true);
     }
-    let min = u64::from(min);
-    if n < min {
+    let m = u64::from(min);
+    if n < m {
         return (Shown::Suppressed, false);
     }
-    let Some(s) = started.filter(|&s| s >= n) else {
-        return (Shown::Suppressed, true);
-    };
-    let short = s - n;
-    if short == 0 {
+    if b.started == Some(n) {
         return (Shown::Value(n), true);
     }
-    let k = (short - 1) / min;
-    let hi = s - 1 - k * min;
-    let lo = s.saturating_sub((k + 1) * min);
-    // What the reader knows once the mean is shown: n ≥ min.
-    if hi + 1 < lo.max(min) + 3 {
-        return (Shown::Suppressed, false);
+    let lo = m.max(b.lo);
+    let hi = b.started.map_or(b.hi, |s| b.hi.min(s.saturating_sub(1)));
+    if hi < lo + 2 || n < lo || n > hi {
+        return (Shown::Suppressed, true);
     }
+    let cell = |k: u64| (lo.max(k * m), hi.min(k * m + m - 1));
+    let small = |k: u64| {
+        let (a, z) = cell(k);
+        z < a + 2
+    };
+    let (kb, kt, k) = (lo / m, hi / m, n / m);
+    let (a, z) = if kb == kt {
+        (kb, kt)
+    } else {
+        let bottom_end = if small(kb) { kb + 1 } else { kb };
+        let top_start = if small(kt) { kt - 1 } else { kt };
+        if bottom_end >= top_start {
+            (kb, kt)
+        } else if k <= bottom_end {
+            (kb, bottom_end)
+        } else if k >= top_start {
+            (top_start, kt)
+        } else {
+            (k, k)
+        }
+    };
     (
         Shown::Range {
-            lo: lo.max(min),
-            hi,
+            lo: cell(a).0,
+            hi: cell(z).1,
         },
         true,
     )
@@ -1389,8 +1467,10 @@ fn week_count(n: u64, started: Option<u64>, min: u32) -> (Shown<u64>, bool) {
 
 /// One shown section's weekly counts, for [`audit_week_bands`].
 struct WeekSection {
-    /// The number started, when printed exactly (the bands' anchor).
+    /// The number started, when printed exactly.
     started: Option<u64>,
+    /// What a reader knows of each week's n before it is printed ([`week_count`]).
+    bounds: Vec<WeekBounds>,
     enrolled: u64,
     /// True n of each week (in the order of the report's weeks).
     n: Vec<u64>,
@@ -1402,13 +1482,12 @@ struct WeekSection {
 /// (section, week index) pairs; `sections[0]` is the program, `parts` the sections of each
 /// split (each split's shown sections count every enrolled person once).
 ///
-/// Each section's band is counted down from its own number started, so it protects that
-/// section's shortfall on its own; but the program's n is the sum of each split's sections'
-/// n, and sections that count the same people from different numbers started (a site whose
+/// Each section's band protects that section's shortfall on its own; but the program's n is
+/// the sum of each split's sections' n, and sections that count the same people (a site whose
 /// people all enrolled lately has nobody in the later weeks, so there the program counts
-/// exactly the other sites' people) have bands at different offsets whose intersection can
-/// be one value: program "22–32" and a site's "12–22" gave 22 of the site's 23, one person
-/// who stopped. So, per week, what a reader knows of every section's n — the printed value or
+/// exactly the other sites' people) have bands whose intersection can be one value: with
+/// bands counted down from each section's number started, program "22–32" and a site's
+/// "12–22" gave 22 of the site's 23, one person who stopped. So, per week, what a reader knows of every section's n — the printed value or
 /// band; else at least `min` when the mean is shown or withheld by the sum audit, else what
 /// the rule leaves hidden; and, the safe side, 0 exactly when the section has nobody that week
 /// (a reader who knows when its people enrolled knows it) — is narrowed by the relations
@@ -1479,7 +1558,7 @@ fn audit_week_bands(
             let printed = |j: usize| {
                 !unprinted.contains(&j)
                     && !matches!(
-                        week_count(sections[j].n[w], sections[j].started, min as u32).0,
+                        week_count(sections[j].n[w], sections[j].bounds[w], min as u32).0,
                         Shown::Suppressed
                     )
             };
@@ -1517,7 +1596,7 @@ fn known_week_n(s: &WeekSection, w: usize, unprinted: bool, min: u64) -> (u64, u
         return (0, 0);
     }
     let top = s.started.unwrap_or(s.enrolled);
-    let (shown, mean_shown) = week_count(n, s.started, min as u32);
+    let (shown, mean_shown) = week_count(n, s.bounds[w], min as u32);
     if !unprinted {
         match shown {
             Shown::Value(v) => return (v, v),
@@ -1531,7 +1610,7 @@ fn known_week_n(s: &WeekSection, w: usize, unprinted: bool, min: u64) -> (u64, u
     // Hidden by the rule: every n the rule would hide (n < min, or a band too narrow).
     let hidden_top = (0..=top)
         .rev()
-        .find(|&m| !week_count(m, s.started, min as u32).1)
+        .find(|&m| !week_count(m, s.bounds[w], min as u32).1)
         .unwrap_or(0);
     (0, hidden_top)
 }
@@ -1733,6 +1812,7 @@ fn section_stats(
     ranges: &[Option<(u64, u64)>],
     withdrawn: &BTreeSet<Line>,
     weeks: &BTreeSet<u32>,
+    week_bounds: &[WeekBounds],
     unbanded: &BTreeSet<u32>,
     min: u32,
     confidence: f64,
@@ -1809,10 +1889,15 @@ fn section_stats(
     let started = (!hidden(Kind::Started)).then(|| raw.count(Kind::Started));
     let trajectory = weeks
         .iter()
-        .map(|&w| {
+        .enumerate()
+        .map(|(wi, &w)| {
             let empty = Vec::new();
             let vals = raw.weeks.get(&w).unwrap_or(&empty);
-            let (mut n, mean_shown) = week_count(vals.len() as u64, started, min);
+            let b = week_bounds
+                .get(wi)
+                .copied()
+                .unwrap_or_else(|| WeekBounds::open(started, raw.count(Kind::Enrolled)));
+            let (mut n, mean_shown) = week_count(vals.len() as u64, b, min);
             if unbanded.contains(&w) {
                 n = Shown::Suppressed;
             }

@@ -240,13 +240,15 @@ fn section_cells(stats: &Value) -> BTreeMap<String, Value> {
 }
 
 /// The weekly trajectory's counts are not cells of the suppression (`summary::week_count`): a
-/// week's n is exact only when it is the number started (shown), else the band of width `min`
-/// its shortfall from the number started lies in. Checks, against the unsuppressed truth: the
-/// band holds the true n and is aligned to the number started (so it depends on the shortfall's
-/// band alone); with n ≥ min (what a shown mean tells) it leaves at least three values; no two
+/// week's n is exact only when it is the number started (shown), else a cell of a fixed grid of
+/// width `min` over the values a reader knows possible. Checks, against the unsuppressed truth:
+/// the band holds the true n and lies on the grid (its edges multiples of min, or the bounds
+/// of what a reader knows); with n ≥ min (what a shown mean tells) it leaves at least three
+/// values; no two
 /// weeks' bands give a difference of 1 … min − 1 exactly; a mean is shown only over ≥ min people.
 fn assert_week_counts_pin_nothing(id: &str, stats: &Value, truth: &Value, min: u64) {
     let started = stats["enrolment"]["started"]["value"].as_u64();
+    let enrolled = truth["enrolment"]["enrolled"]["value"].as_u64().unwrap();
     let truth_n: HashMap<u64, u64> = truth["trajectory"]
         .as_array()
         .unwrap()
@@ -275,14 +277,21 @@ fn assert_week_counts_pin_nothing(id: &str, stats: &Value, truth: &Value, min: u
             );
             bounds.push((v, v));
         } else if let (Some(lo), Some(hi)) = (n["at_least"].as_u64(), n["at_most"].as_u64()) {
-            let s = started.expect("a band needs the number started shown");
+            // The cells of a fixed grid (multiples of min) over what a reader knows: at least
+            // min, below the number started (else the enrolment); an edge cell may be joined to
+            // its neighbour, so its outer edge is that bound.
+            let top = started.map_or(enrolled, |s| s - 1);
             assert!(
                 lo <= tn && tn <= hi,
                 "{id} week {week}: {tn} not in {lo}–{hi}"
             );
             assert!(
-                hi < s && (s - hi - 1).is_multiple_of(min),
-                "{id} week {week}: band not aligned"
+                hi <= top && (hi == top || (hi + 1).is_multiple_of(min)),
+                "{id} week {week}: band {lo}–{hi} not on the grid (top {top})"
+            );
+            assert!(
+                lo == min || lo.is_multiple_of(min),
+                "{id} week {week}: band {lo}–{hi} not on the grid"
             );
             assert!(
                 hi + 1 >= lo.max(min) + 3,
