@@ -937,3 +937,146 @@ fn week_bands_across_monthly_releases_do_not_pin_who_stopped() {
         assert!(read(rel).is_some(), "week 20's n printed");
     }
 }
+
+/// The partition's cells are fixed (multiples of min), so a week whose people change by one
+/// person a reader knows of between two releases can cross a cell boundary: month 1 prints
+/// week 20's n as "33–35" (36 started, 33 with a week-20 value), one of those 33 is taken out
+/// of the program before month 2 (a withdrawal the sponsor is told of; nobody else can reach
+/// week 20 yet, and past weeks' values do not change), and month 2 prints "22–32". n₁ ≤ n₂ + 1
+/// ≤ 33, so n₁ = 33: exactly 3 of month 1's 36 stopped. The attacker intersects month 1's
+/// band with month 2's band shifted by the one person removed.
+#[test]
+#[ignore = "known leak (attack5): fixed cells crossed by a known one-person change between releases; fix needs the week bands in the ledger"]
+fn week_band_crossing_a_cell_edge_when_one_known_person_leaves_does_not_pin_who_stopped() {
+    let min = 11;
+    let first: Vec<Person> = (0..36)
+        .map(|i| {
+            let mut p = person(&format!("F{i:02}"), "Kiln Row", -4.0, true, -3.0);
+            let last = if i < 33 { 24 } else { 10 };
+            p.row.weekly_change_percent = (0..last)
+                .map(|w| (w, -0.25 * f64::from(w) - 0.01 * i as f64))
+                .collect();
+            p
+        })
+        .collect();
+    let mut second: Vec<Person> = first[1..].to_vec(); // F00 (with a week-20 value) leaves
+    for j in 0..14 {
+        let mut p = person(&format!("N{j:02}"), "Kiln Row", -1.0, true, -0.5);
+        p.row.weekly_change_percent = (0..3)
+            .map(|w| (w, -0.2 * f64::from(w) - 0.01 * j as f64))
+            .collect();
+        second.push(p);
+    }
+    let week = 19;
+    let releases = publish_in_order(&[first, second], min);
+    let read = |rel: &Release| -> Option<(u64, u64)> {
+        let w = rel.report["program"]["stats"]["trajectory"]
+            .as_array()?
+            .iter()
+            .find(|w| w["week"].as_u64() == Some(week))?
+            .clone();
+        read_count(&w["n"])
+    };
+    let b1 = read(&releases[0]);
+    let b2 = read(&releases[1]);
+    eprintln!("month 1 week 20 n: {b1:?}, month 2: {b2:?}");
+    let started1 = releases[0].report["program"]["stats"]["enrolment"]["started"]["value"]
+        .as_u64()
+        .expect("month 1 prints its number started");
+    let (mut lo, mut hi) = (u64::from(min), started1 - 1);
+    if let Some((a, z)) = b1 {
+        lo = lo.max(a);
+        hi = hi.min(z);
+    }
+    // Month 2's people in week 20 are month 1's less at most the one who left.
+    if let Some((a, z)) = b2 {
+        lo = lo.max(a);
+        hi = hi.min(z + 1);
+    }
+    assert!(lo <= 33 && 33 <= hi, "{lo}–{hi}");
+    assert!(
+        hi >= lo + 2,
+        "week 20's n in month 1 pinned to {lo}–{hi}: {} of {started1} stopped",
+        started1 - 33
+    );
+}
+
+/// The same crossing within one release, with two `group_by` keys: team Ash is site Kiln Row
+/// less one person (F00, with a week-20 value) plus two people of Harbour Yard who enrolled
+/// lately (no week 20). Kiln Row prints week 20's n as "33–35" (36 started), team Ash "22–32"
+/// (37 started). A reader who knows the teams knows Ash's week-20 people are Kiln Row's less at
+/// most F00, so Kiln Row's n ≤ 33: exactly 3 of its 36 stopped. The audit across sections
+/// only relates the program to the sum of each split's sections, and team Birch (whose only
+/// possible week-20 person is F00) is hidden as anything from 0 to under min.
+#[test]
+#[ignore = "known leak (attack5): two group_by keys whose sections differ by one known person cross a cell edge; audit_week_bands does not use memberships beyond program = Σ sections"]
+fn week_bands_of_two_keys_differing_by_one_person_do_not_pin_who_stopped() {
+    let min = 11;
+    let mut people: Vec<Person> = Vec::new();
+    for i in 0..36 {
+        let mut p = person(&format!("F{i:02}"), "Kiln Row", -4.0, true, -3.0);
+        let last = if i < 33 { 24 } else { 10 };
+        p.row.weekly_change_percent = (0..last)
+            .map(|w| (w, -0.25 * f64::from(w) - 0.01 * i as f64))
+            .collect();
+        let team = if i == 0 { "Birch" } else { "Ash" };
+        p.row.groups.insert("team".into(), team.into());
+        people.push(p);
+    }
+    for j in 0..14 {
+        let mut p = person(&format!("H{j:02}"), "Harbour Yard", -1.0, true, -0.5);
+        p.row.weekly_change_percent = (0..3)
+            .map(|w| (w, -0.2 * f64::from(w) - 0.01 * j as f64))
+            .collect();
+        let team = if j < 2 { "Ash" } else { "Birch" };
+        p.row.groups.insert("team".into(), team.into());
+        people.push(p);
+    }
+    let options = GroupOptions {
+        min_cell_size: min,
+        group_by: vec!["site".into(), "team".into()],
+        confidence: 0.95,
+    };
+    let (report, _) = summarize_release(&rows(&people), &options, &secret());
+    let report = serde_json::to_value(report).unwrap();
+    let week = 19;
+    let section = |label: &str| -> Value {
+        report["splits"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .flat_map(|s| s["sections"].as_array().unwrap().iter())
+            .find(|s| s["label"].as_str() == Some(label))
+            .map(|s| s["stats"].clone())
+            .unwrap_or(Value::Null)
+    };
+    let band = |stats: &Value| -> Option<(u64, u64)> {
+        let w = stats["trajectory"]
+            .as_array()?
+            .iter()
+            .find(|w| w["week"].as_u64() == Some(week))?
+            .clone();
+        read_count(&w["n"])
+    };
+    let (kiln, ash) = (section("Kiln Row"), section("Ash"));
+    let (bk, ba) = (band(&kiln), band(&ash));
+    eprintln!("Kiln Row week 20 n: {bk:?}, Ash: {ba:?}");
+    let started = kiln["enrolment"]["started"]["value"]
+        .as_u64()
+        .expect("Kiln Row prints its number started");
+    let (mut lo, mut hi) = (u64::from(min), started - 1);
+    if let Some((a, z)) = bk {
+        lo = lo.max(a);
+        hi = hi.min(z);
+    }
+    if let Some((a, z)) = ba {
+        lo = lo.max(a);
+        hi = hi.min(z + 1);
+    }
+    assert!(lo <= 33 && 33 <= hi, "{lo}–{hi}");
+    assert!(
+        hi >= lo + 2,
+        "Kiln Row's week 20 n pinned to {lo}–{hi}: {} of {started} stopped",
+        started - 33
+    );
+}
