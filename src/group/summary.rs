@@ -193,9 +193,9 @@ impl Methods {
                  no hidden count can be worked out from the shown ones, and a share, mean or \
                  interval is hidden when a count it rests on is hidden. In the weekly \
                  trajectory, n is exact while everyone who started is still weighing in; after \
-                 that it is given as a range on a fixed grid of {min} values, the same for the \
-                 same people in every report, so that no two weeks' or months' n can be \
-                 subtracted to count the few who stopped in between, and it is left out where, set against the other \
+                 that it is given only as the range the rule itself implies ({min} to one fewer \
+                 than the number started), so that no two weeks' or months' n can be subtracted \
+                 to count the few who stopped in between, and it is left out where, set against the other \
                  groups' ranges, it would still narrow such a number; a week's mean needs at \
                  least {min} people.",
                 min.saturating_sub(1)
@@ -1223,9 +1223,12 @@ pub(super) fn build(
             if shown(Kind::WithOutcome) {
                 lines.push((Line::Completers, 2 + base, changes));
             }
-            for (&w, idx) in &raw.week_idx {
-                // A week's mean is shown over at least min people (`week_count`).
-                if idx.len() >= min as usize {
+            let bounds = &week_bounds[&(d as *const Draft)];
+            for (wi, &w) in weeks.iter().enumerate() {
+                let Some(idx) = raw.week_idx.get(&w) else {
+                    continue;
+                };
+                if week_count(idx.len() as u64, bounds[wi], min).1 {
                     let vals = &raw.weeks[&w];
                     let atoms = idx
                         .iter()
@@ -1407,18 +1410,19 @@ impl WeekBounds {
 /// for nearly every week and, through the relations, most of the report: a clean 300-person
 /// program showed neither its enrolment nor its weight change. So the weeks' counts are not
 /// cells of the suppression at all. A week everyone started reaches prints n exactly (it is the
-/// number started). Any other prints the cell of a fixed partition that holds n: the values a
-/// reader already knows possible — at least `min` (a shown mean says so), below the number
-/// started, and within what earlier releases printed exactly of people containing or contained
-/// in the week's ([`WeekBounds`]) — cut at the multiples of `min`, a cell of fewer than three
-/// values at either end joined to its neighbour. The cells do not depend on n nor on the
-/// number started beyond those bounds, so the same people give the same cell in every
-/// release: cells counted down from each month's (growing) number started had shifted, and
-/// months together pinned n (bands from 300, 316, 330, 339 and 351 started met at 295). When
-/// the known values are fewer than three, n is not printed (a decision the reader can make
-/// alike). A mean (with its interval) is shown when n ≥ min; the means go through the sum audit
-/// like every other mean. `min` 0: no protection (the truth the suppression tests compare
-/// against).
+/// number started). Any other prints only what a reader already knows from the rule: at least
+/// `min` (a shown mean says so) and fewer than the number started. Narrower ranges were tried
+/// and broken: ranges counted down from each month's growing number started met across months
+/// (bands from 30, 46, 60, 69, 81 started pinned 25–26), and cells of a fixed grid were pinned
+/// by a one-person change a reader knows of crossing a cell edge (one leaver between months, or
+/// two `group_by` keys whose sections differ by one person: "33–35" and "22–32" gave 3 of 36).
+/// A range the reader's knowledge leaves at fewer than three values — the number started within
+/// `min + 2`, or counts that earlier releases printed exactly of people containing or contained
+/// in the week's ([`WeekBounds`]) — would give the shortfall, so there the mean is not shown
+/// either (a decision that rests only on those bounds and on n differing from the number
+/// started). With the number started hidden, n is not shown and the mean is shown when n ≥ min.
+/// The means go through the sum audit like every other mean. `min` 0: no protection (the truth
+/// the suppression tests compare against).
 fn week_count(n: u64, b: WeekBounds, min: u32) -> (Shown<u64>, bool) {
     if min == 0 {
         return (Shown::Value(n), true);
@@ -1433,36 +1437,12 @@ fn week_count(n: u64, b: WeekBounds, min: u32) -> (Shown<u64>, bool) {
     let lo = m.max(b.lo);
     let hi = b.started.map_or(b.hi, |s| b.hi.min(s.saturating_sub(1)));
     if hi < lo + 2 || n < lo || n > hi {
-        return (Shown::Suppressed, true);
+        return (Shown::Suppressed, false);
     }
-    let cell = |k: u64| (lo.max(k * m), hi.min(k * m + m - 1));
-    let small = |k: u64| {
-        let (a, z) = cell(k);
-        z < a + 2
-    };
-    let (kb, kt, k) = (lo / m, hi / m, n / m);
-    let (a, z) = if kb == kt {
-        (kb, kt)
-    } else {
-        let bottom_end = if small(kb) { kb + 1 } else { kb };
-        let top_start = if small(kt) { kt - 1 } else { kt };
-        if bottom_end >= top_start {
-            (kb, kt)
-        } else if k <= bottom_end {
-            (kb, bottom_end)
-        } else if k >= top_start {
-            (top_start, kt)
-        } else {
-            (k, k)
-        }
-    };
-    (
-        Shown::Range {
-            lo: cell(a).0,
-            hi: cell(z).1,
-        },
-        true,
-    )
+    match b.started {
+        Some(s) => (Shown::Range { lo: m, hi: s - 1 }, true),
+        None => (Shown::Suppressed, true),
+    }
 }
 
 /// One shown section's weekly counts, for [`audit_week_bands`].

@@ -240,15 +240,12 @@ fn section_cells(stats: &Value) -> BTreeMap<String, Value> {
 }
 
 /// The weekly trajectory's counts are not cells of the suppression (`summary::week_count`): a
-/// week's n is exact only when it is the number started (shown), else a cell of a fixed grid of
-/// width `min` over the values a reader knows possible. Checks, against the unsuppressed truth:
-/// the band holds the true n and lies on the grid (its edges multiples of min, or the bounds
-/// of what a reader knows); with n ≥ min (what a shown mean tells) it leaves at least three
-/// values; no two
+/// week's n is exact only when it is the number started (shown), else the range the rule itself
+/// implies, min … number started − 1. Checks, against the unsuppressed truth: the range holds
+/// the true n and is exactly that; it leaves at least three values; no two
 /// weeks' bands give a difference of 1 … min − 1 exactly; a mean is shown only over ≥ min people.
 fn assert_week_counts_pin_nothing(id: &str, stats: &Value, truth: &Value, min: u64) {
     let started = stats["enrolment"]["started"]["value"].as_u64();
-    let enrolled = truth["enrolment"]["enrolled"]["value"].as_u64().unwrap();
     let truth_n: HashMap<u64, u64> = truth["trajectory"]
         .as_array()
         .unwrap()
@@ -277,22 +274,13 @@ fn assert_week_counts_pin_nothing(id: &str, stats: &Value, truth: &Value, min: u
             );
             bounds.push((v, v));
         } else if let (Some(lo), Some(hi)) = (n["at_least"].as_u64(), n["at_most"].as_u64()) {
-            // The cells of a fixed grid (multiples of min) over what a reader knows: at least
-            // min, below the number started (else the enrolment); an edge cell may be joined to
-            // its neighbour, so its outer edge is that bound.
-            let top = started.map_or(enrolled, |s| s - 1);
+            // Only what the rule itself tells: at least min, fewer than the number started.
+            let s = started.expect("a range needs the number started shown");
             assert!(
                 lo <= tn && tn <= hi,
                 "{id} week {week}: {tn} not in {lo}–{hi}"
             );
-            assert!(
-                hi <= top && (hi == top || (hi + 1).is_multiple_of(min)),
-                "{id} week {week}: band {lo}–{hi} not on the grid (top {top})"
-            );
-            assert!(
-                lo == min || lo.is_multiple_of(min),
-                "{id} week {week}: band {lo}–{hi} not on the grid"
-            );
+            assert_eq!((lo, hi), (min, s - 1), "{id} week {week}");
             assert!(
                 hi + 1 >= lo.max(min) + 3,
                 "{id} week {week}: band {lo}–{hi} too narrow"
