@@ -1302,7 +1302,11 @@ pub(super) fn build(
                 bounds: week_bounds
                     .get(&(d as *const Draft))
                     .cloned()
-                    .unwrap_or_else(|| vec![WeekBounds::open(started, 0); weeks.len()]),
+                    .unwrap_or_else(|| {
+                        // Every shown section has bounds once the counts are settled; the same
+                        // default as the report's own (`section_stats`).
+                        vec![WeekBounds::open(started, raw.count(Kind::Enrolled)); weeks.len()]
+                    }),
                 enrolled: raw.count(Kind::Enrolled),
                 n: weeks
                     .iter()
