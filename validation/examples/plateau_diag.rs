@@ -7,7 +7,8 @@
 //! the same scale noise), bw (true body weight, same days), tissue_daily (true tissue every
 //! day), cond (per true onset: the onsets with the band at 0.20 and 0.30 %/wk, and whether the
 //! estimate hit), defs (truth applied to body weight instead of tissue), pN (person N day by
-//! day). `-v` lists every scored person.
+//! day; with the environment variable `DIAG_OBS` set to one of the record modes above, person N
+//! with those records). `-v` lists every scored person.
 
 use cohortpress_metric_api::{Cell, Targets};
 use cohortpress_validation::truth::{self, Archetype, Weighing};
@@ -31,7 +32,8 @@ fn main() {
     for i in 0..300 {
         let mut p = truth::simulate(seed, i, days);
         let shift = p.bw[0] - p.tissue[0];
-        match mode.as_str() {
+        let m2 = std::env::var("DIAG_OBS").unwrap_or_else(|_| mode.clone());
+        match m2.as_str() {
             "tissue" => {
                 for o in &mut p.obs {
                     o.kg = p.tissue[o.day] + shift;
