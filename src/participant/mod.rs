@@ -790,6 +790,9 @@ pub fn load_opened(
         high_bmi_checked: profile
             .as_ref()
             .is_some_and(|p| p.flags.iter().any(|f| f == profile::HIGH_BMI_CHECKED_FLAG)),
+        low_bmi_checked: profile
+            .as_ref()
+            .is_some_and(|p| p.flags.iter().any(|f| f == profile::LOW_BMI_CHECKED_FLAG)),
     };
     // Only the profile (and the folder) can make a participant unusable: a CSV file that
     // cannot be used is an error for that file, and the participant is reported without it.

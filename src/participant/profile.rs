@@ -54,18 +54,23 @@ pub struct ProfileDef {
 /// medication review with fast loss or low intake), a pregnancy (no suggestions for change
 /// until a clinician has been involved; the energy model and the floors are for adults who are
 /// not pregnant) and steps in the weigh-ins that are real changes of body weight (counted in
-/// the change since the start), and weigh-ins with a BMI of 60 or more that were checked
-/// (read as written rather than refused as pounds under `kg`).
-pub const KNOWN_FLAGS: [&str; 4] = [
+/// the change since the start), and weigh-ins with a BMI of 60 or more, or in pounds under
+/// 18.5, that were checked (read as written rather than refused as the other unit).
+pub const KNOWN_FLAGS: [&str; 5] = [
     "glucose-lowering-medication",
     "pregnant",
     cohortpress_metric_trend::view::REAL_STEPS_FLAG,
     HIGH_BMI_CHECKED_FLAG,
+    LOW_BMI_CHECKED_FLAG,
 ];
 
 /// The profile flag saying weigh-ins at a BMI of [`super::records::HIGH_BMI`] or more are
 /// this person's, in the unit written.
 pub const HIGH_BMI_CHECKED_FLAG: &str = "high-bmi-checked";
+
+/// The profile flag saying weigh-ins in pounds at a BMI under
+/// [`super::records::UNDERWEIGHT_BMI`] are this person's, in the unit written.
+pub const LOW_BMI_CHECKED_FLAG: &str = "low-bmi-checked";
 
 /// A profile flag in its written form: case, spaces and underscores do not matter
 /// (`Glucose_lowering medication` is `glucose-lowering-medication`), and `pregnancy` is

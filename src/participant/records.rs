@@ -85,6 +85,9 @@ pub struct Window {
     /// The profile's `high-bmi-checked` flag: weigh-ins with a BMI of
     /// [`HIGH_BMI`] or more are this person's, in the unit written.
     pub high_bmi_checked: bool,
+    /// The profile's `low-bmi-checked` flag: weigh-ins in pounds with a BMI under
+    /// [`UNDERWEIGHT_BMI`] are this person's, in the unit written.
+    pub low_bmi_checked: bool,
 }
 
 /// A BMI, kg/m², at and above which weigh-ins read as kilograms are taken for pounds unless the
@@ -93,6 +96,14 @@ pub struct Window {
 /// and over is rare enough to be a category of its own in bariatric surgery ("super-super
 /// obesity"; from memory).
 pub const HIGH_BMI: f64 = 60.0;
+
+/// A BMI, kg/m², under which a whole weights file in pounds that would give a likely BMI as
+/// kilograms is taken for kilograms under `lb` unless the profile says it was checked
+/// (`low-bmi-checked`): kilograms written as pounds read as 0.45 times the weight, so anyone
+/// with a BMI under 40.8 reads as underweight. Under 18.5 is underweight (WHO 2000, *Obesity:
+/// preventing and managing the global epidemic*, Technical Report Series 894), rare among
+/// adults who join a weight-management program.
+pub const UNDERWEIGHT_BMI: f64 = 18.5;
 
 /// A BMI, kg/m², below which weigh-ins are no adult's in a weight-management program (WHO:
 /// under 16 is severe thinness).
@@ -1064,6 +1075,42 @@ pub fn parse_weights(
                 ))
                 .found(format!("`{}` with unit `kg`", first.value.value))
                 .hint("if the weights are pounds, correct the `unit` column or the header to `lb`; if they are kilograms and the person's BMI is that high, add `high-bmi-checked` to the `flags` of profile.yaml; check the height too"),
+            );
+            return None;
+        }
+    }
+
+    // The mirror: a whole file of kilograms under `lb` reads as 0.45 times the weight, an
+    // underweight person (the report would flag a low BMI and every figure would be wrong).
+    // Refused when the values as written would be a likely weight in kilograms, unless the
+    // profile's `low-bmi-checked` says the low BMI is real.
+    let read_lb: Vec<usize> = (0..rows.len())
+        .filter(|&j| rows[j].value.unit == WeightUnit::Lb && !swapped[j])
+        .collect();
+    if read_lb.len() * 2 > rows.len() && !w.low_bmi_checked {
+        let mut v: Vec<f64> = read_lb.iter().map(|&j| kg[j]).collect();
+        let med = median(&mut v);
+        let written = Mass::from_kg(med).lb();
+        if w.bmi(med).is_some_and(|b| b < UNDERWEIGHT_BMI) && w.likely_kg(written) == Some(true) {
+            let first = &rows[read_lb[0]];
+            let (h, bmi, bmi_kg) = (
+                w.height_cm.unwrap_or_default(),
+                w.bmi(med).unwrap_or_default(),
+                w.bmi(written).unwrap_or_default(),
+            );
+            diags.push(
+                ctx.error(format!(
+                    "the weigh-ins read as pounds (median {written:.1} lb = {med:.1} kg, {} of {}) give a BMI of {bmi:.1} at the profile's height of {h:.0} cm, underweight; as kilograms they would give {bmi_kg:.1}: they look like kilograms under `lb`, and the file is not used",
+                    read_lb.len(),
+                    rows.len()
+                ))
+                .at(first.line, wcol)
+                .field("weight")
+                .expected(format!(
+                    "weigh-ins in the unit their rows declare (as pounds, a BMI of {UNDERWEIGHT_BMI} or more at {h:.0} cm)"
+                ))
+                .found(format!("`{}` with unit `lb`", first.value.value))
+                .hint("if the weights are kilograms, correct the `unit` column or the header to `kg`; if they are pounds and the person is underweight, add `low-bmi-checked` to the `flags` of profile.yaml (and put the person before a clinician); check the height too"),
             );
             return None;
         }

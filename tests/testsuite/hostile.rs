@@ -798,6 +798,7 @@ mod readers {
                 as_of: chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap(),
                 height_cm: None,
                 high_bmi_checked: false,
+                low_bmi_checked: false,
             };
             let file = "participants/P-1/x.csv";
             let ctx = FileCtx::new("P-1", file);

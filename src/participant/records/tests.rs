@@ -12,6 +12,7 @@ fn window() -> Window {
         as_of: d(2026, 12, 1),
         height_cm: None,
         high_bmi_checked: false,
+        low_bmi_checked: false,
     }
 }
 
@@ -308,6 +309,7 @@ fn a_file_of_pounds_under_kg_is_never_taken_for_kilograms() {
     assert!((w.unwrap()[0].weight.kg() - 165.3 * 0.453_592_37).abs() < 1e-9);
     let checked = Window {
         high_bmi_checked: true,
+        low_bmi_checked: false,
         ..small
     };
     let (w, diags) = read(&all_lb, &checked);
@@ -369,6 +371,73 @@ fn a_file_of_pounds_under_kg_is_never_taken_for_kilograms() {
         "{}",
         diags[0]
     );
+}
+
+/// The mirror: a whole file of kilograms under `lb` read as 0.45 times the weight. 101.6 kg at
+/// 178 cm (BMI 32) was read as 46.1 kg (BMI 14.6) without a word, and a report would have shown
+/// an underweight person and every figure wrong. The same file at a height where the pounds are
+/// a likely weight, the same low reading with the profile's `low-bmi-checked`, and honest
+/// pounds are read.
+#[test]
+fn a_file_of_kilograms_under_lb_is_never_taken_for_pounds() {
+    let day =
+        |i: i64| chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap() + chrono::Duration::days(i);
+    let read = |text: &str, w: &Window| {
+        let mut diags = Vec::new();
+        let out = parse_weights(
+            text,
+            &CsvOptions::default(),
+            &ctx("weights.csv"),
+            w,
+            &mut diags,
+        );
+        (out, diags)
+    };
+    let file = |unit: &str, f: f64| {
+        let mut t = String::from("date,weight,unit\n");
+        for i in 0..30 {
+            t.push_str(&format!(
+                "{},{:.1},{unit}\n",
+                day(2 * i),
+                (101.6 - 0.05 * (2 * i) as f64) * f
+            ));
+        }
+        t
+    };
+    let at = |cm: f64, checked: bool| Window {
+        height_cm: Some(cm),
+        low_bmi_checked: checked,
+        ..window()
+    };
+    let (w, diags) = read(&file("lb", 1.0), &at(177.8, false));
+    assert!(w.is_none(), "the file is not used");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let e = &diags[0];
+    assert_eq!(
+        (e.severity, e.line, e.column),
+        (Severity::Error, Some(2), Some(2))
+    );
+    assert_eq!(
+        e.message,
+        "the weigh-ins read as pounds (median 100.1 lb = 45.4 kg, 30 of 30) give a BMI of 14.4 at the profile's height of 178 cm, underweight; as kilograms they would give 31.7: they look like kilograms under `lb`, and the file is not used"
+    );
+    assert_eq!(e.found.as_deref(), Some("`101.6` with unit `lb`"));
+    // A heavier person's kilograms read as pounds give BMI 17 (133.9 kg at 188 cm): refused too.
+    let heavy = file("lb", 133.9 / 101.6);
+    assert!(read(&heavy, &at(188.0, false)).0.is_none());
+    // Checked by the program team: read as written.
+    let (w, diags) = read(&file("lb", 1.0), &at(177.8, true));
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert!((w.unwrap()[0].weight.kg() - 101.6 * 0.453_592_37).abs() < 1e-9);
+    // At 140 cm the pounds are a likely weight (BMI 23.2): read as written.
+    let (w, diags) = read(&file("lb", 1.0), &at(140.0, false));
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert!(w.is_some());
+    // Honest pounds of the same person, and the kilograms under `kg`: nothing to say.
+    for text in [file("lb", 1.0 / 0.453_592_37), file("kg", 1.0)] {
+        let (w, diags) = read(&text, &at(177.8, false));
+        assert!(diags.is_empty() && w.unwrap().len() == 30, "{diags:#?}");
+    }
 }
 
 #[test]
@@ -489,6 +558,7 @@ fn dates_outside_the_window_are_dropped() {
         as_of: d(2026, 12, 1),
         height_cm: None,
         high_bmi_checked: false,
+        low_bmi_checked: false,
     };
     let out = parse_weights(
         "date,weight,unit\n2026-03-31,72,kg\n2026-04-01,72,kg\n2026-09-01,71,kg\n2027-01-01,70,kg\n",
