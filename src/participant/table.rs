@@ -348,7 +348,15 @@ impl Table {
             parts.push(format!("column `{written}` read as `{col}`"));
         }
         for (col, unit) in &self.units {
-            parts.push(format!("`{col}` in {unit} (from the header)"));
+            // Units are kept lowercase for matching; the note writes them as people do
+            // ("`kcal` in kj" read as if kilojoules were a misspelt kcal).
+            let (unit, then) = match unit.as_str() {
+                "kj" => ("kJ", ", converted to kcal at 4.184 kJ/kcal"),
+                "mmol/l" => ("mmol/L", ""),
+                "mg/dl" => ("mg/dL", ""),
+                u => (u, ""),
+            };
+            parts.push(format!("`{col}` in {unit} (from the header){then}"));
         }
         if !parts.is_empty() {
             ctx.note(parts.join("; "));
@@ -2846,6 +2854,25 @@ mod tests {
         )
         .unwrap();
         assert_eq!(t.header_unit("weight"), Some("kg"));
+        // Kilojoules are named as such, with their conversion (the note said "`kcal` in kj").
+        let t = read_table(
+            "date,Energy (kJ)\n2026-04-01,8000\n",
+            &crate::participant::records::INTAKE,
+            &opts,
+            &ctx,
+            &mut d,
+        )
+        .unwrap();
+        t.describe(&opts, &ctx);
+        assert_eq!(
+            ctx.take_notes()
+                .iter()
+                .map(|n| n.message.as_str())
+                .collect::<Vec<_>>(),
+            [
+                "column `Energy (kJ)` read as `kcal`; `kcal` in kJ (from the header), converted to kcal at 4.184 kJ/kcal"
+            ]
+        );
         assert!(read_table("date,Weight (oz)\n", &spec, &opts, &ctx, &mut d).is_none());
         assert!(d[0].message.contains("unit `oz`"), "{}", d[0]);
         assert_eq!(
