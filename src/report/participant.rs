@@ -236,6 +236,12 @@ pub fn build(
             // Joined within the last four weeks of the period: the trend has had no four
             // weeks to show.
             Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
+            // Weighed in as often as the target asks this period: more weigh-ins are then not
+            // what an unclear trend needs.
+            v.adherence
+                .as_ref()
+                .and_then(|a| a.weigh_ins_per_week)
+                .is_some_and(|w| w >= p.targets.weigh_ins_per_week),
         ),
         summary: summary(&v, units, plan.period.to),
         milestones: v
@@ -579,6 +585,7 @@ fn headline(
     units: UnitSystem,
     left: Option<NaiveDate>,
     joined_recently: Option<NaiveDate>,
+    weighs_in_enough: bool,
 ) -> String {
     let status = trend.map_or(Status::InsufficientData, |t| t.status);
     let rate = trend.and_then(|t| t.slope_kg_per_week.value);
@@ -619,6 +626,13 @@ fn headline(
             format!("Your weight trend has been rising over the last four weeks ({rate_s}).")
         }
         Status::Stable => "Your weight has been stable over the last four weeks.".to_string(),
+        // Someone who weighs in as often as asked read "more regular weigh-ins would show
+        // whether it has levelled off" (4.4 a week against a target of 3, losing 0.15 kg a
+        // week): a slow change near the plateau band's edge needs more weeks, not more
+        // weigh-ins.
+        Status::Unclear if weighs_in_enough => format!(
+            "Your weight has changed little over the last four weeks (about {rate_s}), too little yet to tell whether it has levelled off or is still changing slowly; the next weeks' weigh-ins will show it."
+        ),
         Status::Unclear => format!(
             "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off."
         ),
@@ -1391,6 +1405,31 @@ mod activity_unread_tests {
         assert_eq!(lab_number(G, 7.0, "mmol/L"), "7.0");
     }
 
+    /// A trend too close to the plateau band's edge to call: "more regular weigh-ins" is advice
+    /// only for someone who weighs in less than asked (a participant weighing in 4.4 times a
+    /// week against a target of 3 read it, in July, losing about 0.15 kg a week).
+    #[test]
+    fn an_unclear_trend_asks_for_more_weigh_ins_only_of_a_sparse_weigher() {
+        let mut t = TrendView {
+            status: Status::Unclear,
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week.value = Some(-0.15);
+        let sparse = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        assert_eq!(
+            sparse,
+            "Your weight has changed little over the last four weeks (about −0.15 kg/week); more \
+             regular weigh-ins would show whether it has levelled off."
+        );
+        let regular = headline(Some(&t), None, UnitSystem::Metric, None, None, true);
+        assert_eq!(
+            regular,
+            "Your weight has changed little over the last four weeks (about −0.15 kg/week), too \
+             little yet to tell whether it has levelled off or is still changing slowly; the \
+             next weeks' weigh-ins will show it."
+        );
+    }
+
     /// "Going down, by about −1.32 kg/week" said the sign twice.
     #[test]
     fn a_falling_trend_is_told_without_a_double_sign() {
@@ -1399,12 +1438,12 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-1.32);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
         );
-        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None, None);
+        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None, None, false);
         assert!(h.contains("by about 2.91 lb/week"), "{h}");
     }
 
@@ -1423,7 +1462,7 @@ mod activity_unread_tests {
             lower: Some(3.82),
             upper: Some(6.75),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "There are too few recent weigh-ins to see how your weight moved over the last four \
@@ -1447,13 +1486,13 @@ mod activity_unread_tests {
         assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
         // Not confirmed by the level test: nothing is said of a rise.
         t.regain_verdict = Some(RegainVerdict::NotRegaining);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert!(!h.contains("lowest point"), "{h}");
         // A rising slope already says so; the level sentence is not repeated.
         t.regain_verdict = Some(RegainVerdict::Regaining);
         t.status = Status::Regaining;
         t.slope_kg_per_week.value = Some(0.3);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert!(!h.contains("lowest point"), "{h}");
     }
 
@@ -1505,13 +1544,13 @@ mod activity_unread_tests {
             lower: Some(0.02),
             upper: Some(0.35),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "Your weight has edged up over the last four weeks (+0.19 kg/week), slowly enough to count as a plateau."
         );
         t.status = Status::Stable;
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "Your weight has been nearly stable over the last four weeks, edging up slowly (+0.19 kg/week)."
@@ -1519,7 +1558,7 @@ mod activity_unread_tests {
         // An interval that reaches zero: held steady, as before.
         t.status = Status::Plateau;
         t.slope_kg_per_week.lower = Some(-0.02);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
@@ -1732,12 +1771,19 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         let joined = "2026-04-20".parse::<NaiveDate>().unwrap();
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, Some(joined));
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            Some(joined),
+            false,
+        );
         assert_eq!(
             h,
             "You joined on 20 Apr 2026, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it."
         );
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert!(h.starts_with("There are too few recent weigh-ins"), "{h}");
     }
 
