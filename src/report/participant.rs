@@ -183,6 +183,15 @@ pub fn build(
         .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
     let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan, p.enrolled);
 
+    // Someone who never logged activity read "Activity minutes per week 0 (target 150)" and
+    // "Activity, beyond resting 0 kcal/day", as if they had done none (the module counts no log
+    // as no minutes; the energy model's activity level stands for everyday activity).
+    let unread = match activity_unread(diags) {
+        ActivityUnread::Nothing if !data.activity.iter().any(|a| a.date <= plan.period.to) => {
+            ActivityUnread::NoLog
+        }
+        u => u,
+    };
     let (energy_view, energy_chart) = match &v.energy {
         Some(e) => {
             let window_days = plan
@@ -194,7 +203,12 @@ pub fn build(
                 .round()
                 .max(1.0) as u64;
             let span = energy_window_words(window_days, p.enrolled, plan.period.to);
-            let (view, chart) = energy_section(e, &span, left.filter(|w| *w < plan.period.from));
+            let (view, chart) = energy_section(
+                e,
+                &span,
+                left.filter(|w| *w < plan.period.from),
+                unread == ActivityUnread::NoLog,
+            );
             (Some(view), chart)
         }
         None => (None, None),
@@ -204,7 +218,7 @@ pub fn build(
             let (view, chart) = adherence_section(
                 a,
                 p.targets.activity_minutes_per_week,
-                &activity_unread(diags),
+                &unread,
                 &super::ProgramView::new(plan).period_label,
             );
             (Some(view), Some(chart))
@@ -945,6 +959,7 @@ fn energy_section(
     e: &EnergyResults,
     span: &str,
     left_before: Option<NaiveDate>,
+    no_activity_log: bool,
 ) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
     let push = |items: &mut Vec<Kv>, label: &str, s: Interval| {
@@ -957,11 +972,15 @@ fn energy_section(
         }
     };
     push(&mut items, "Resting energy (estimated)", e.rmr_kcal_per_day);
-    push(
-        &mut items,
-        "Activity, beyond resting",
-        e.activity_net_kcal_per_day,
-    );
+    if no_activity_log && e.activity_net_kcal_per_day.value.is_some() {
+        items.push(Kv::new("Activity, beyond resting", "none logged"));
+    } else {
+        push(
+            &mut items,
+            "Activity, beyond resting",
+            e.activity_net_kcal_per_day,
+        );
+    }
     // By energy balance exactly when there is an implied intake (the energy module's rule).
     let by_balance = e.implied_intake_kcal_per_day.value.is_some();
     let tdee_label = if by_balance {
@@ -1107,6 +1126,9 @@ enum ActivityUnread {
     Nothing,
     Rows(u64),
     File,
+    /// No activity recorded at all since enrolment (no activity.csv, or no rows in it): the
+    /// module counts that as 0 minutes, which the report does not print as if it were measured.
+    NoLog,
 }
 
 fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
@@ -1178,6 +1200,10 @@ fn adherence_section(
             ActivityUnread::Nothing => {
                 format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0))
             }
+            ActivityUnread::NoLog => format!(
+                "none logged since you joined (target {})",
+                fmt::fixed(target, 0)
+            ),
         };
         items.push(Kv::new(
             &format!("Activity minutes per week (moderate-equivalent), {period}"),
@@ -1222,7 +1248,11 @@ fn adherence_section(
             fmt::date(d),
             num_text(w.weigh_ins),
             num_text(w.food_log_days),
-            fmt::fixed(mins, 0),
+            if *unread == ActivityUnread::NoLog {
+                "–".into()
+            } else {
+                fmt::fixed(mins, 0)
+            },
             if offered.is_empty() || offered == "0" {
                 "–".into()
             } else {
@@ -1230,10 +1260,13 @@ fn adherence_section(
             },
         ]);
     }
-    let alt = format!(
+    let mut alt = format!(
         "Moderate-equivalent activity minutes by week, against the target of {} minutes.",
         fmt::fixed(target, 0)
     );
+    if *unread == ActivityUnread::NoLog {
+        alt.push_str(" No activity has been logged since you joined, so the bars show none.");
+    }
     let chart = Chart::Bars(BarChart {
         title: "Activity minutes by week".into(),
         y_label: "min/week".into(),
@@ -1618,7 +1651,7 @@ mod activity_unread_tests {
                 .label
                 .clone()
         };
-        let (v, chart) = energy_section(&e, "last 4 weeks", None);
+        let (v, chart) = energy_section(&e, "last 4 weeks", None, false);
         assert!(chart.is_some());
         assert_eq!(
             label(&v),
@@ -1630,7 +1663,7 @@ mod activity_unread_tests {
         );
         assert!(v.explanation.contains("so the two can differ"));
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
-        let (v, _) = energy_section(&e, "last 30 days", None);
+        let (v, _) = energy_section(&e, "last 30 days", None, false);
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
         // The balance and the gap say what they are (sample program, September 2026, SG-001:
         // "Implied minus logged +670" and "Energy balance (implied) +59", both unexplained).
@@ -1653,14 +1686,14 @@ mod activity_unread_tests {
             );
         }
         e.energy_balance_kcal_per_day.value = Some(59.0);
-        let (v, _) = energy_section(&e, "last 4 weeks", None);
+        let (v, _) = energy_section(&e, "last 4 weeks", None, false);
         assert!(v.explanation.contains("above zero your body stored energy"));
         e.energy_balance_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, "last 4 weeks", None);
+        let (v, _) = energy_section(&e, "last 4 weeks", None, false);
         assert!(!v.explanation.contains("The energy balance is"));
         // Someone who left before the period: no figures for the days after they left.
         let left = NaiveDate::from_ymd_opt(2026, 7, 27).unwrap();
-        let (v, _) = energy_section(&e, "last 4 weeks", Some(left));
+        let (v, _) = energy_section(&e, "last 4 weeks", Some(left), false);
         let labels: Vec<&str> = v.items.iter().map(|k| k.label.as_str()).collect();
         assert_eq!(
             labels,
@@ -1674,7 +1707,7 @@ mod activity_unread_tests {
         );
         // Without an implied intake the total is the equation's, over the period.
         e.implied_intake_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, "last 4 weeks", None);
+        let (v, _) = energy_section(&e, "last 4 weeks", None, false);
         assert_eq!(
             label(&v),
             "Total energy use per day (equation and activity, this period)"
