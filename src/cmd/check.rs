@@ -778,7 +778,8 @@ mod tests {
             "{verbose}"
         );
         assert!(
-            verbose.contains("warning ×20, 1 participant: date 2026-05-01 is before enrolment"),
+            verbose
+                .contains("warning ×20, 1 participant: e.g. date 2026-05-01 is before enrolment"),
             "{verbose}"
         );
     }
