@@ -30,8 +30,39 @@ pub fn from_str<T: DeserializeOwned>(text: &str, file: &str) -> Result<T, Diagno
         if d.line.is_none() && d.message.contains("more than one document") {
             d.line = second_document_line(text);
         }
+        // A date that could not be read is named as written (`enrolled: 01/06/2026` said only
+        // "input contains invalid characters", not what it had found there).
+        if d.found.is_none()
+            && is_date_error(&d.message)
+            && let (Some(line), Some(col)) = (d.line, d.column)
+            && let Some(v) = scalar_at(text, line, col)
+        {
+            d = d.found(format!("`{v}`"));
+        }
         d
     })
+}
+
+/// The plain or quoted scalar that starts at 1-based `line` and `column` of `text` (up to a
+/// comment, the end of a flow item or the line's end), for naming a value that was refused.
+fn scalar_at(text: &str, line: u64, column: u64) -> Option<String> {
+    let l = text
+        .lines()
+        .nth(usize::try_from(line).ok()?.checked_sub(1)?)?;
+    let start = usize::try_from(column).ok()?.checked_sub(1)?;
+    let rest: String = l.chars().skip(start).collect();
+    let v = if let Some(q @ ('"' | '\'')) = rest.chars().next() {
+        rest[1..].split(q).next().unwrap_or_default().to_string()
+    } else {
+        let end = rest
+            .find(" #")
+            .into_iter()
+            .chain(rest.find([',', '}', ']']))
+            .min()
+            .unwrap_or(rest.len());
+        rest[..end].trim().to_string()
+    };
+    (!v.is_empty()).then_some(v)
 }
 
 /// Walks the event stream of `text` once, refusing it (with the line and column where a limit
@@ -390,6 +421,16 @@ mod tests {
         assert_eq!(d.field.as_deref(), Some("inner.start"), "{d}");
         assert!(d.message.contains("not a valid date"), "{d}");
         assert!(d.hint.as_deref().unwrap().contains("2026-04-01"));
+        // What was found is named, as written (it was left out).
+        assert_eq!(d.found.as_deref(), Some("`2026-02-30`"), "{d}");
+        // A date in another order, with a comment after it, and a quoted one.
+        let text = "name: a\ninner:\n  start: 01/06/2026   # enrolment day\n  count: 3\n";
+        let d = from_str::<Outer>(text, "profile.yaml").unwrap_err();
+        assert_eq!((d.line, d.column), (Some(3), Some(10)), "{d}");
+        assert_eq!(d.found.as_deref(), Some("`01/06/2026`"), "{d}");
+        let text = "name: a\ninner: { start: \"1 June 2026\", count: 3 }\n";
+        let d = from_str::<Outer>(text, "profile.yaml").unwrap_err();
+        assert_eq!(d.found.as_deref(), Some("`1 June 2026`"), "{d}");
     }
 
     #[test]

@@ -122,6 +122,8 @@ pub fn write_report_with(
         count: usize,
         participants: std::collections::BTreeSet<&'a str>,
         examples: Vec<&'a Diagnostic>,
+        // Whether every message of the kind is the first one's, word for word.
+        same: bool,
     }
     let mut kinds: std::collections::BTreeMap<(Severity, String), Kind<'_>> =
         std::collections::BTreeMap::new();
@@ -154,8 +156,10 @@ pub fn write_report_with(
             count: 0,
             participants: Default::default(),
             examples: Vec::new(),
+            same: true,
         });
         k.count += 1;
+        k.same &= k.examples.first().is_none_or(|f| f.message == d.message);
         if let Some(p) = &d.participant {
             k.participants.insert(p);
         }
@@ -185,9 +189,13 @@ pub fn write_report_with(
                 1 => ", 1 participant".to_string(),
                 n => format!(", {n} participants"),
             };
+            // A kind's messages may differ in their values (each participant's own enrolment
+            // date): the first is then shown as an example, not as what all of them say ("date
+            // 2026-06-01 is before enrolment (2026-06-03)" stood for one enrolled on 2 June too).
+            let eg = if k.same { "" } else { " e.g." };
             writeln!(
                 out,
-                "  {} ×{}{who}: {}",
+                "  {} ×{}{who}:{eg} {}",
                 severity_word(*sev),
                 k.count,
                 first.message
@@ -522,6 +530,49 @@ mod tests {
         );
     }
 
+    /// Two participants enrolled on different days, each with a row before it: one kind in the
+    /// summary, whose line printed the first one's enrolment date as if it were both's.
+    #[test]
+    fn a_summary_kind_whose_messages_differ_shows_its_first_as_an_example() {
+        let tmp = program_dir();
+        for (id, enrolled) in [("P1", "2026-04-03"), ("P2", "2026-04-02")] {
+            add(
+                tmp.path(),
+                id,
+                &[
+                    ("profile.yaml", &profile(id).replace("2026-04-01", enrolled)),
+                    (
+                        "weights.csv",
+                        "date,weight,unit\n2026-04-01,80,kg\n2026-04-05,80,kg\n",
+                    ),
+                ],
+            );
+        }
+        let (_, out) = run(tmp.path());
+        assert!(
+            out.contains(
+                "  warning ×2, 2 participants: e.g. date 2026-04-01 is before enrolment (2026-04-03); the row is dropped\n"
+            ),
+            "{out}"
+        );
+        // Messages that are the same word for word are not called an example.
+        add(
+            tmp.path(),
+            "P2",
+            &[(
+                "profile.yaml",
+                &profile("P2").replace("2026-04-01", "2026-04-03"),
+            )],
+        );
+        let (_, out) = run(tmp.path());
+        assert!(
+            out.contains(
+                "  warning ×2, 2 participants: date 2026-04-01 is before enrolment (2026-04-03); the row is dropped\n"
+            ),
+            "{out}"
+        );
+    }
+
     #[test]
     fn warnings_and_errors_set_the_exit_code() {
         let tmp = program_dir();
@@ -727,7 +778,8 @@ mod tests {
             "{verbose}"
         );
         assert!(
-            verbose.contains("warning ×20, 1 participant: date 2026-05-01 is before enrolment"),
+            verbose
+                .contains("warning ×20, 1 participant: e.g. date 2026-05-01 is before enrolment"),
             "{verbose}"
         );
     }

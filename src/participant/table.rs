@@ -348,7 +348,15 @@ impl Table {
             parts.push(format!("column `{written}` read as `{col}`"));
         }
         for (col, unit) in &self.units {
-            parts.push(format!("`{col}` in {unit} (from the header)"));
+            // Units are kept lowercase for matching; the note writes them as people do
+            // ("`kcal` in kj" read as if kilojoules were a misspelt kcal).
+            let (unit, then) = match unit.as_str() {
+                "kj" => ("kJ", ", converted to kcal at 4.184 kJ/kcal"),
+                "mmol/l" => ("mmol/L", ""),
+                "mg/dl" => ("mg/dL", ""),
+                u => (u, ""),
+            };
+            parts.push(format!("`{col}` in {unit} (from the header){then}"));
         }
         if !parts.is_empty() {
             ctx.note(parts.join("; "));
@@ -1022,6 +1030,13 @@ fn read_records(
         (columns.contains_key(v) && r.is_some() && missing.iter().all(|m| Some(*m) == *r))
             .then_some(*v)
     });
+    // The value columns present whose header or cells may carry the unit a missing column
+    // would give: (header as written, the units it may name, the column it stands for).
+    let unit_stand_in: Vec<(String, &[&str], &str)> = spec
+        .header_units
+        .iter()
+        .filter_map(|(v, allowed, r)| Some((written[*columns.get(v)?].clone(), *allowed, (*r)?)))
+        .collect();
     let missing_error = |missing: &[&str]| {
         let looks_like_data = names
             .first()
@@ -1034,6 +1049,24 @@ fn read_records(
         } else if names.len() == 1 && delimiter != b';' && names[0].contains(';') {
             "the file seems to use `;` between fields; remove `input.delimiter` from program.yaml to have it recognised, or set it to ';'"
                 .to_string()
+        } else if let [only] = missing
+            && let Some((header, allowed, _)) = unit_stand_in.iter().find(|(_, _, r)| r == only)
+        {
+            // Only the unit is missing, and the value column is there (`Date,Weight` with
+            // `72.5` in its cells: a bathroom scale app's export): the unit can be named in that
+            // column's header or its cells, as the README says, not only in a column of its own.
+            let units: Vec<&str> = allowed
+                .iter()
+                .copied()
+                .filter(|u| ["kg", "lb"].contains(u))
+                .collect();
+            let (a, b) = (
+                units.first().unwrap_or(&"kg"),
+                units.get(1).unwrap_or(&"lb"),
+            );
+            format!(
+                "name the unit in the `{header}` column's header (`{header} ({a})` or `{header} ({b})`), write it in each cell (`72.5 {a}`), or add a `{only}` column: a number alone could be {a} or {b}",
+            )
         } else {
             format!(
                 "name the columns in the first row (any order), or map the file's own names to ours in program.yaml: `input: {{ columns: {{ {}: {{ \"Their name\": {} }} }} }}`",
@@ -2821,6 +2854,25 @@ mod tests {
         )
         .unwrap();
         assert_eq!(t.header_unit("weight"), Some("kg"));
+        // Kilojoules are named as such, with their conversion (the note said "`kcal` in kj").
+        let t = read_table(
+            "date,Energy (kJ)\n2026-04-01,8000\n",
+            &crate::participant::records::INTAKE,
+            &opts,
+            &ctx,
+            &mut d,
+        )
+        .unwrap();
+        t.describe(&opts, &ctx);
+        assert_eq!(
+            ctx.take_notes()
+                .iter()
+                .map(|n| n.message.as_str())
+                .collect::<Vec<_>>(),
+            [
+                "column `Energy (kJ)` read as `kcal`; `kcal` in kJ (from the header), converted to kcal at 4.184 kJ/kcal"
+            ]
+        );
         assert!(read_table("date,Weight (oz)\n", &spec, &opts, &ctx, &mut d).is_none());
         assert!(d[0].message.contains("unit `oz`"), "{}", d[0]);
         assert_eq!(

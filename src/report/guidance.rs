@@ -724,10 +724,18 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
     // From 70, loss is for obese older people with a health problem the weight causes (ESPEN
     // guideline on clinical nutrition and hydration in geriatrics, Volkert et al. 2019, Clin
     // Nutr 38:10–47), which this report cannot judge: a clinician first.
+    // "The amounts here" only where the report offers some: a 74-year-old told "There is
+    // nothing you need to change" read it with no amount anywhere on the page (KeepGoing never
+    // has options; RestartLoss has none when no change clears the checks).
     if state.older && matches!(phase, Phase::RestartLoss | Phase::KeepGoing) {
-        cautions.push(
-            "From the age of 70, losing weight is advised only where a clinician finds that it helps a health problem the weight causes, because it can also cost muscle that is hard to regain: please talk to your clinician before acting on the amounts here.".to_string(),
-        );
+        let ask = if g.options.is_empty() {
+            "please talk to your clinician about whether losing more is right for you"
+        } else {
+            "please talk to your clinician before acting on the amounts here"
+        };
+        cautions.push(format!(
+            "From the age of 70, losing weight is advised only where a clinician finds that it helps a health problem the weight causes, because it can also cost muscle that is hard to regain: {ask}."
+        ));
     }
     let at = g
         .paragraphs
@@ -1806,8 +1814,23 @@ mod tests {
         assert!(!g.options.is_empty());
         let line = "From the age of 70, losing weight is advised only where a clinician finds that it helps a health problem the weight causes, because it can also cost muscle that is hard to regain: please talk to your clinician before acting on the amounts here.";
         assert_eq!(g.paragraphs.last().map(String::as_str), Some(line));
+        // Keeping going offers no amount, so the line does not point to any: it asks about
+        // losing more (it said "before acting on the amounts here" after "There is nothing
+        // you need to change").
         let g = compose(Phase::KeepGoing, &s, &t, &facts());
-        assert!(g.paragraphs.iter().any(|p| p == line), "{:?}", g.paragraphs);
+        assert!(g.options.is_empty());
+        let no_amounts = "From the age of 70, losing weight is advised only where a clinician finds that it helps a health problem the weight causes, because it can also cost muscle that is hard to regain: please talk to your clinician about whether losing more is right for you.";
+        assert_eq!(
+            g.paragraphs.last().map(String::as_str),
+            Some(no_amounts),
+            "{:?}",
+            g.paragraphs
+        );
+        assert!(
+            g.paragraphs[0].contains("nothing you need to change"),
+            "{:?}",
+            g.paragraphs
+        );
         // Under 70 the line is not there.
         s.older = false;
         let g = compose(Phase::RestartLoss, &s, &t, &facts());

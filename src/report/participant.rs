@@ -183,6 +183,15 @@ pub fn build(
         .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
     let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan, p.enrolled);
 
+    // Someone who never logged activity read "Activity minutes per week 0 (target 150)" and
+    // "Activity, beyond resting 0 kcal/day", as if they had done none (the module counts no log
+    // as no minutes; the energy model's activity level stands for everyday activity).
+    let unread = match activity_unread(diags) {
+        ActivityUnread::Nothing if !data.activity.iter().any(|a| a.date <= plan.period.to) => {
+            ActivityUnread::NoLog
+        }
+        u => u,
+    };
     let (energy_view, energy_chart) = match &v.energy {
         Some(e) => {
             let window_days = plan
@@ -194,7 +203,12 @@ pub fn build(
                 .round()
                 .max(1.0) as u64;
             let span = energy_window_words(window_days, p.enrolled, plan.period.to);
-            let (view, chart) = energy_section(e, &span, left.filter(|w| *w < plan.period.from));
+            let (view, chart) = energy_section(
+                e,
+                &span,
+                left.filter(|w| *w < plan.period.from),
+                unread == ActivityUnread::NoLog,
+            );
             (Some(view), chart)
         }
         None => (None, None),
@@ -204,7 +218,7 @@ pub fn build(
             let (view, chart) = adherence_section(
                 a,
                 p.targets.activity_minutes_per_week,
-                &activity_unread(diags),
+                &unread,
                 &super::ProgramView::new(plan).period_label,
             );
             (Some(view), Some(chart))
@@ -236,6 +250,12 @@ pub fn build(
             // Joined within the last four weeks of the period: the trend has had no four
             // weeks to show.
             Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
+            // Weighed in as often as the target asks this period: more weigh-ins are then not
+            // what an unclear trend needs.
+            v.adherence
+                .as_ref()
+                .and_then(|a| a.weigh_ins_per_week)
+                .is_some_and(|w| w >= p.targets.weigh_ins_per_week),
         ),
         summary: summary(&v, units, plan.period.to),
         milestones: v
@@ -579,6 +599,7 @@ fn headline(
     units: UnitSystem,
     left: Option<NaiveDate>,
     joined_recently: Option<NaiveDate>,
+    weighs_in_enough: bool,
 ) -> String {
     let status = trend.map_or(Status::InsufficientData, |t| t.status);
     let rate = trend.and_then(|t| t.slope_kg_per_week.value);
@@ -619,6 +640,13 @@ fn headline(
             format!("Your weight trend has been rising over the last four weeks ({rate_s}).")
         }
         Status::Stable => "Your weight has been stable over the last four weeks.".to_string(),
+        // Someone who weighs in as often as asked read "more regular weigh-ins would show
+        // whether it has levelled off" (4.4 a week against a target of 3, losing 0.15 kg a
+        // week): a slow change near the plateau band's edge needs more weeks, not more
+        // weigh-ins.
+        Status::Unclear if weighs_in_enough => format!(
+            "Your weight has changed little over the last four weeks (about {rate_s}), too little yet to tell whether it has levelled off or is still changing slowly; the next weeks' weigh-ins will show it."
+        ),
         Status::Unclear => format!(
             "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off."
         ),
@@ -931,6 +959,7 @@ fn energy_section(
     e: &EnergyResults,
     span: &str,
     left_before: Option<NaiveDate>,
+    no_activity_log: bool,
 ) -> (EnergyView, Option<Chart>) {
     let mut items = Vec::new();
     let push = |items: &mut Vec<Kv>, label: &str, s: Interval| {
@@ -943,11 +972,15 @@ fn energy_section(
         }
     };
     push(&mut items, "Resting energy (estimated)", e.rmr_kcal_per_day);
-    push(
-        &mut items,
-        "Activity, beyond resting",
-        e.activity_net_kcal_per_day,
-    );
+    if no_activity_log && e.activity_net_kcal_per_day.value.is_some() {
+        items.push(Kv::new("Activity, beyond resting", "none logged"));
+    } else {
+        push(
+            &mut items,
+            "Activity, beyond resting",
+            e.activity_net_kcal_per_day,
+        );
+    }
     // By energy balance exactly when there is an implied intake (the energy module's rule).
     let by_balance = e.implied_intake_kcal_per_day.value.is_some();
     let tdee_label = if by_balance {
@@ -1093,6 +1126,9 @@ enum ActivityUnread {
     Nothing,
     Rows(u64),
     File,
+    /// No activity recorded at all since enrolment (no activity.csv, or no rows in it): the
+    /// module counts that as 0 minutes, which the report does not print as if it were measured.
+    NoLog,
 }
 
 fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
@@ -1164,6 +1200,10 @@ fn adherence_section(
             ActivityUnread::Nothing => {
                 format!("{} (target {})", fmt::fixed(v, 0), fmt::fixed(target, 0))
             }
+            ActivityUnread::NoLog => format!(
+                "none logged since you joined (target {})",
+                fmt::fixed(target, 0)
+            ),
         };
         items.push(Kv::new(
             &format!("Activity minutes per week (moderate-equivalent), {period}"),
@@ -1208,7 +1248,11 @@ fn adherence_section(
             fmt::date(d),
             num_text(w.weigh_ins),
             num_text(w.food_log_days),
-            fmt::fixed(mins, 0),
+            if *unread == ActivityUnread::NoLog {
+                "–".into()
+            } else {
+                fmt::fixed(mins, 0)
+            },
             if offered.is_empty() || offered == "0" {
                 "–".into()
             } else {
@@ -1216,10 +1260,13 @@ fn adherence_section(
             },
         ]);
     }
-    let alt = format!(
+    let mut alt = format!(
         "Moderate-equivalent activity minutes by week, against the target of {} minutes.",
         fmt::fixed(target, 0)
     );
+    if *unread == ActivityUnread::NoLog {
+        alt.push_str(" No activity has been logged since you joined, so the bars show none.");
+    }
     let chart = Chart::Bars(BarChart {
         title: "Activity minutes by week".into(),
         y_label: "min/week".into(),
@@ -1391,6 +1438,31 @@ mod activity_unread_tests {
         assert_eq!(lab_number(G, 7.0, "mmol/L"), "7.0");
     }
 
+    /// A trend too close to the plateau band's edge to call: "more regular weigh-ins" is advice
+    /// only for someone who weighs in less than asked (a participant weighing in 4.4 times a
+    /// week against a target of 3 read it, in July, losing about 0.15 kg a week).
+    #[test]
+    fn an_unclear_trend_asks_for_more_weigh_ins_only_of_a_sparse_weigher() {
+        let mut t = TrendView {
+            status: Status::Unclear,
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week.value = Some(-0.15);
+        let sparse = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        assert_eq!(
+            sparse,
+            "Your weight has changed little over the last four weeks (about −0.15 kg/week); more \
+             regular weigh-ins would show whether it has levelled off."
+        );
+        let regular = headline(Some(&t), None, UnitSystem::Metric, None, None, true);
+        assert_eq!(
+            regular,
+            "Your weight has changed little over the last four weeks (about −0.15 kg/week), too \
+             little yet to tell whether it has levelled off or is still changing slowly; the \
+             next weeks' weigh-ins will show it."
+        );
+    }
+
     /// "Going down, by about −1.32 kg/week" said the sign twice.
     #[test]
     fn a_falling_trend_is_told_without_a_double_sign() {
@@ -1399,12 +1471,12 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-1.32);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
         );
-        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None, None);
+        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None, None, false);
         assert!(h.contains("by about 2.91 lb/week"), "{h}");
     }
 
@@ -1423,7 +1495,7 @@ mod activity_unread_tests {
             lower: Some(3.82),
             upper: Some(6.75),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "There are too few recent weigh-ins to see how your weight moved over the last four \
@@ -1447,13 +1519,13 @@ mod activity_unread_tests {
         assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
         // Not confirmed by the level test: nothing is said of a rise.
         t.regain_verdict = Some(RegainVerdict::NotRegaining);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert!(!h.contains("lowest point"), "{h}");
         // A rising slope already says so; the level sentence is not repeated.
         t.regain_verdict = Some(RegainVerdict::Regaining);
         t.status = Status::Regaining;
         t.slope_kg_per_week.value = Some(0.3);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert!(!h.contains("lowest point"), "{h}");
     }
 
@@ -1505,13 +1577,13 @@ mod activity_unread_tests {
             lower: Some(0.02),
             upper: Some(0.35),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "Your weight has edged up over the last four weeks (+0.19 kg/week), slowly enough to count as a plateau."
         );
         t.status = Status::Stable;
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "Your weight has been nearly stable over the last four weeks, edging up slowly (+0.19 kg/week)."
@@ -1519,7 +1591,7 @@ mod activity_unread_tests {
         // An interval that reaches zero: held steady, as before.
         t.status = Status::Plateau;
         t.slope_kg_per_week.lower = Some(-0.02);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
@@ -1579,7 +1651,7 @@ mod activity_unread_tests {
                 .label
                 .clone()
         };
-        let (v, chart) = energy_section(&e, "last 4 weeks", None);
+        let (v, chart) = energy_section(&e, "last 4 weeks", None, false);
         assert!(chart.is_some());
         assert_eq!(
             label(&v),
@@ -1591,7 +1663,7 @@ mod activity_unread_tests {
         );
         assert!(v.explanation.contains("so the two can differ"));
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
-        let (v, _) = energy_section(&e, "last 30 days", None);
+        let (v, _) = energy_section(&e, "last 30 days", None, false);
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
         // The balance and the gap say what they are (sample program, September 2026, SG-001:
         // "Implied minus logged +670" and "Energy balance (implied) +59", both unexplained).
@@ -1614,14 +1686,14 @@ mod activity_unread_tests {
             );
         }
         e.energy_balance_kcal_per_day.value = Some(59.0);
-        let (v, _) = energy_section(&e, "last 4 weeks", None);
+        let (v, _) = energy_section(&e, "last 4 weeks", None, false);
         assert!(v.explanation.contains("above zero your body stored energy"));
         e.energy_balance_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, "last 4 weeks", None);
+        let (v, _) = energy_section(&e, "last 4 weeks", None, false);
         assert!(!v.explanation.contains("The energy balance is"));
         // Someone who left before the period: no figures for the days after they left.
         let left = NaiveDate::from_ymd_opt(2026, 7, 27).unwrap();
-        let (v, _) = energy_section(&e, "last 4 weeks", Some(left));
+        let (v, _) = energy_section(&e, "last 4 weeks", Some(left), false);
         let labels: Vec<&str> = v.items.iter().map(|k| k.label.as_str()).collect();
         assert_eq!(
             labels,
@@ -1635,7 +1707,7 @@ mod activity_unread_tests {
         );
         // Without an implied intake the total is the equation's, over the period.
         e.implied_intake_kcal_per_day.value = None;
-        let (v, _) = energy_section(&e, "last 4 weeks", None);
+        let (v, _) = energy_section(&e, "last 4 weeks", None, false);
         assert_eq!(
             label(&v),
             "Total energy use per day (equation and activity, this period)"
@@ -1732,12 +1804,19 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         let joined = "2026-04-20".parse::<NaiveDate>().unwrap();
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, Some(joined));
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            Some(joined),
+            false,
+        );
         assert_eq!(
             h,
             "You joined on 20 Apr 2026, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it."
         );
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert!(h.starts_with("There are too few recent weigh-ins"), "{h}");
     }
 

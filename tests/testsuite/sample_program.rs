@@ -176,6 +176,19 @@ fn sample_program_runs_end_to_end() {
     let sg018 = std::fs::read_to_string(reports.join("participants/SG-018.html")).unwrap();
     assert!(sg018.contains("before this period began"));
     assert!(!sg018.contains("Total energy use per day"));
+    // SG-019 has no activity.csv: their report read "Activity minutes per week 0 (target
+    // 150)" and "Activity, beyond resting 0 kcal/day", as if they had done none.
+    let sg019 = std::fs::read_to_string(reports.join("participants/SG-019.html")).unwrap();
+    assert!(
+        sg019.contains("none logged since you joined (target 150)")
+            && sg019.contains("No activity has been logged since you joined")
+            && sg019.contains(">none logged<"),
+        "SG-019's activity"
+    );
+    assert!(!sg019.contains(">0 (target 150)<"));
+    // Someone who logs activity still reads their minutes.
+    let sg001 = std::fs::read_to_string(reports.join("participants/SG-001.html")).unwrap();
+    assert!(sg001.contains(" (target 150)<") && !sg001.contains("none logged"));
     // weekly.csv's last week of September (Mon 28 Sep) covers 3 days of the period: SG-001's
     // weigh-in count there is over 3 days, not 7, as adherence's weekly table says; the
     // descriptor must tell a researcher averaging weekly counts that weeks can be partial.

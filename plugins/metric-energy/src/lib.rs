@@ -274,7 +274,7 @@ impl MetricModule for EnergyModule {
                 "underreporting_percent",
                 "scalar",
                 "%",
-                "Share of the implied intake missing from the food log, 95 % interval",
+                "The person's own under-reporting share, estimated from every four weeks of food logs and weight trend since enrolment together (without four weeks of logs, 100·(1 − logged/implied) over the last window); not this period's difference, which is intake_gap_kcal_per_day; 95 % interval",
             ),
             OutputSpec::new("rmr_equation", "text", "", "Resting energy equation used"),
             OutputSpec::new(
@@ -402,6 +402,22 @@ mod tests {
         assert_eq!(s["intake_floor_male"], 1500.0);
         assert_eq!(s["drift_threshold_kcal_per_day"], 150.0);
         assert_eq!(s["walking_met"], 3.5);
+        // The under-reporting share is the whole record's estimate, not this period's gap: a
+        // researcher read "Share of the implied intake missing from the food log" beside 12.3 %
+        // where this period's logs were 82 % above the implied intake (a fast loser logging
+        // 1,526 kcal/d against 837 implied).
+        let ur = spec
+            .outputs
+            .iter()
+            .find(|o| o.name == "underreporting_percent")
+            .unwrap();
+        assert!(
+            ur.description.contains("since enrolment")
+                && ur.description.contains("not this period's difference")
+                && ur.description.contains("intake_gap_kcal_per_day"),
+            "{}",
+            ur.description
+        );
         let bad = serde_json::json!({"equation": "guess", "base_pal": 4.0});
         assert_eq!(spec.resolve_settings(&bad).unwrap_err().len(), 2);
     }

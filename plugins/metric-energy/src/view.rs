@@ -29,7 +29,7 @@ pub mod names {
     pub const IMPLIED_INTAKE_LOWER_KCAL_PER_DAY: &str = "implied_intake_lower_kcal_per_day";
     /// Upper 95 % bound of the implied intake (scalar, kcal/d).
     pub const IMPLIED_INTAKE_UPPER_KCAL_PER_DAY: &str = "implied_intake_upper_kcal_per_day";
-    /// Share of the implied intake missing from the food log (scalar, %, with interval).
+    /// The person's own under-reporting share since enrolment (scalar, %, with interval).
     pub const UNDERREPORTING_PERCENT: &str = "underreporting_percent";
     /// Implied minus logged intake (scalar, kcal/d, with interval).
     pub const INTAKE_GAP_KCAL_PER_DAY: &str = "intake_gap_kcal_per_day";
@@ -343,7 +343,7 @@ pub struct EnergyView {
     pub implied_intake_lower_kcal_per_day: Option<f64>,
     /// Upper 95 % bound of the implied intake, kcal/d.
     pub implied_intake_upper_kcal_per_day: Option<f64>,
-    /// Share of the implied intake missing from the food log, %.
+    /// The person's own under-reporting share since enrolment (not this period's gap), %.
     pub underreporting_percent: Interval,
     /// Implied minus logged intake, kcal/d.
     pub intake_gap_kcal_per_day: Interval,

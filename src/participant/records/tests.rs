@@ -669,6 +669,32 @@ fn units_written_in_the_weight_cells_are_read() {
         "{}",
         diags[0]
     );
+    // Its hint names the ways the README allows, with the file's own header: a header unit, a
+    // unit in the cells, or a unit column (it offered only a mapping in program.yaml, which
+    // cannot supply a unit the file does not hold).
+    assert_eq!(
+        diags[0].hint.as_deref(),
+        Some(
+            "name the unit in the `Weight` column's header (`Weight (kg)` or `Weight (lb)`), \
+             write it in each cell (`72.5 kg`), or add a `unit` column: a number alone could \
+             be kg or lb"
+        ),
+        "{}",
+        diags[0]
+    );
+    // The header the hint suggests is read.
+    let (w, diags) = weights_or_error("Date,Weight (kg)\n2026-04-01,72.5\n");
+    assert_eq!(w.map(|w| w.len()), Some(1), "{diags:#?}");
+    // Another missing column keeps the general hint.
+    let (_, diags) = weights_or_error("Weight,unit\n72.5,kg\n");
+    assert!(
+        diags[0]
+            .hint
+            .as_deref()
+            .is_some_and(|h| h.contains("name the columns")),
+        "{}",
+        diags[0]
+    );
 }
 
 /// A unit in the cell that the unit column or header contradicts: which one is right cannot be
