@@ -2228,11 +2228,31 @@ impl Cells<'_> {
                     NumberError::NotFinite => "not a finite number",
                     NumberError::Empty | NumberError::NotANumber => "not a number",
                 };
+                // The example fits the column: a kcal cell read "e.g. `72.5`" and "after the
+                // number: `72.5 kg`", a weight, beside a diary's `n/a`.
+                let (example, unit) = match col {
+                    "kcal" => ("1850", "kcal"),
+                    "minutes" => ("45", "min"),
+                    "steps" => ("8000", ""),
+                    "met" => ("3.5", ""),
+                    "carbs_g" | "fat_g" | "protein_g" | "free_sugars_g" => ("45", "g"),
+                    "value" => ("5.7", "%"),
+                    _ => ("72.5", "kg"),
+                };
+                let hint = match e {
+                    NumberError::NotANumber if unit.is_empty() => {
+                        format!("write a number such as `{example}` (no words)")
+                    }
+                    NumberError::NotANumber => format!(
+                        "write a number such as `{example}` (no words; where a unit is allowed, after the number: `{example} {unit}`)"
+                    ),
+                    _ => e.hint().to_string(),
+                };
                 diags.push(
                     self.warn(col, format!("{what} in `{col}`; {consequence}"))
-                        .expected("a number with a decimal point, e.g. `72.5`")
+                        .expected(format!("a number with a decimal point, e.g. `{example}`"))
                         .found(format!("`{s}`"))
-                        .hint(e.hint()),
+                        .hint(hint),
                 );
                 None
             }

@@ -151,7 +151,12 @@ fn iso_dates(text: &str) -> Vec<String> {
             && boundary_after
             && NaiveDate::parse_from_str(s, "%Y-%m-%d").is_ok()
         {
-            out.push(s.to_string());
+            // Each date once, in the order first named: the fast-loss flag names its run's
+            // end twice ("from 2026-06-01 to 2026-11-27 (the last 21, 2026-11-06 to
+            // 2026-11-27…)").
+            if !out.iter().any(|d| d == s) {
+                out.push(s.to_string());
+            }
             i += 10;
         } else {
             i += 1;
@@ -542,6 +547,12 @@ mod tests {
             vec!["2026-08-01".to_string(), "2026-08-21".to_string()]
         );
         assert!(iso_dates("about 1150 kcal a day").is_empty());
+        assert_eq!(
+            iso_dates(
+                "in every 21 days from 2026-06-01 to 2026-11-27 (the last 21, 2026-11-06 to 2026-11-27: about 1.6 kg"
+            ),
+            ["2026-06-01", "2026-11-27", "2026-11-06"]
+        );
         // The low-BMI flag's own message: a 10-byte window ends inside "²".
         assert!(
             iso_dates(

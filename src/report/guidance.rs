@@ -978,7 +978,20 @@ fn maintain(
         },
         floor,
     );
+    // Past the program's target with a lab value in the diabetes range and a BMI at which
+    // loss is still offered: whether losing more helps is the clinician's call (in type 2
+    // diabetes a loss beyond 5 % often brings further benefit: ADA Standards of Care, from
+    // memory), so the report neither says "not to lose more" nor that the loss "does not need"
+    // to go on (a participant at HbA1c 6.8 %, BMI 31.3, 9.7 % down read both).
+    let clinician_decides = why == MaintainWhy::TargetReached
+        && f.lab_in_diabetes_range
+        && state.bmi.is_some_and(|b| b >= t.loss_cut(state.older));
     g.paragraphs.push(match why {
+        MaintainWhy::TargetReached if clinician_decides => format!(
+            "You have reached your target of a {} % loss (you are at {} %). Whether losing more would help with your blood sugar is for your clinician to judge; until you have talked it over, the aim is to hold your weight.",
+            fmt::fixed(state.target_percent.abs(), 0),
+            fmt::fixed(change.abs(), 1)
+        ),
         MaintainWhy::TargetReached => format!(
             "You have reached your target of a {} % loss (you are at {} %). The aim from here is to hold your weight, not to lose more.",
             fmt::fixed(state.target_percent.abs(), 0),
@@ -1018,9 +1031,11 @@ fn maintain(
             .slope
             .map(|s| format!(" (about {})", rate_words_to(s.value, f.units, decimals)))
             .unwrap_or_default();
-        g.paragraphs.push(format!(
-            "Your weight is still coming down{rate}, and it does not need to."
-        ));
+        g.paragraphs.push(if clinician_decides {
+            format!("Your weight is still coming down{rate}.")
+        } else {
+            format!("Your weight is still coming down{rate}, and it does not need to.")
+        });
         if let Some(max) = fast {
             g.paragraphs.push(pace_caution(max, f, decimals));
         }
@@ -1835,6 +1850,58 @@ mod tests {
         s.older = false;
         let g = compose(Phase::RestartLoss, &s, &t, &facts());
         assert!(g.paragraphs.iter().all(|p| !p.contains("age of 70")));
+    }
+
+    /// Demo-like participant past the 5 % target (9.7 % down), BMI 31, HbA1c in the diabetes
+    /// range, still losing: the report said "The aim from here is to hold your weight, not to
+    /// lose more" and "it does not need to", a medical claim the program target does not
+    /// support; whether to lose more is left to the clinician. Without the lab, or below the
+    /// loss cut-off, the wording is unchanged.
+    #[test]
+    fn past_the_target_with_a_diabetes_range_lab_more_loss_is_the_clinicians_call() {
+        let t = Thresholds::default();
+        let mut s = st(Losing);
+        s.bmi = Some(31.3);
+        s.change_percent = Some(-9.7);
+        assert_eq!(decide(&s, &t), Phase::Maintain(MaintainWhy::TargetReached));
+        let mut f = facts();
+        f.slope = Some(Est {
+            value: -0.34,
+            lower: Some(-0.45),
+            upper: Some(-0.23),
+        });
+        f.lab_in_diabetes_range = true;
+        let g = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f);
+        let all = g.paragraphs.join(" ");
+        assert!(
+            all.contains("You have reached your target of a 5 % loss (you are at 9.7 %). Whether losing more would help with your blood sugar is for your clinician to judge; until you have talked it over, the aim is to hold your weight."),
+            "{all}"
+        );
+        assert!(
+            all.contains("Your weight is still coming down (about 0.3 kg a week)."),
+            "{all}"
+        );
+        assert!(
+            !all.contains("not to lose more") && !all.contains("does not need to"),
+            "{all}"
+        );
+        assert!(all.contains("diabetes range"), "{all}");
+        // Without the lab value: as before.
+        f.lab_in_diabetes_range = false;
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("not to lose more") && all.contains("and it does not need to"),
+            "{all}"
+        );
+        // Below BMI 25 loss is not offered anyway: as before.
+        f.lab_in_diabetes_range = true;
+        s.bmi = Some(24.0);
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(all.contains("not to lose more"), "{all}");
     }
 
     #[test]

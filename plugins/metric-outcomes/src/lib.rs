@@ -476,15 +476,18 @@ fn ols_slope_per_week(points: &[(NaiveDate, f64)]) -> Option<f64> {
 }
 
 /// The fastest and the latest span of `span` days over which the daily level fell faster
-/// than `limit` kg/week: `(fastest rate, latest (start, end, rate))`.
+/// than `limit` kg/week, and the start of the run of such spans, day after day, that the latest
+/// ends: `(fastest rate, latest (start, end, rate), run start)`.
 fn fast_loss_spans(
     daily: &[(NaiveDate, f64)],
     span: usize,
     limit: f64,
-) -> Option<(f64, (NaiveDate, NaiveDate, f64))> {
+) -> Option<(f64, (NaiveDate, NaiveDate, f64), NaiveDate)> {
     let weeks = span as f64 / 7.0;
     let mut fastest = f64::NEG_INFINITY;
     let mut latest = None;
+    let mut run_start = None;
+    let mut latest_run_start = None;
     for i in span..daily.len() {
         let (d0, v0) = daily[i - span];
         let (d1, v1) = daily[i];
@@ -492,9 +495,13 @@ fn fast_loss_spans(
         if rate > limit + CUT_EPS {
             fastest = fastest.max(rate);
             latest = Some((d0, d1, rate));
+            let start = *run_start.get_or_insert(d0);
+            latest_run_start = Some(start);
+        } else {
+            run_start = None;
         }
     }
-    latest.map(|l| (fastest, l))
+    latest.map(|l| (fastest, l, latest_run_start.unwrap_or(l.0)))
 }
 
 fn kg_lb(kg: f64) -> String {
@@ -1040,14 +1047,14 @@ fn fast_spans_in_period(
     ctx: &ModuleContext,
     levels: &[(NaiveDate, f64)],
     sign: f64,
-) -> Option<(f64, (NaiveDate, NaiveDate, f64))> {
+) -> Option<(f64, (NaiveDate, NaiveDate, f64), NaiveDate)> {
     let (limit, span) = fast_change_settings(ctx);
     let daily: Vec<(NaiveDate, f64)> = fill_daily(levels)
         .into_iter()
         .filter(|(d, _)| *d <= ctx.period.to)
         .map(|(d, v)| (d, sign * v))
         .collect();
-    fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _))| *end >= ctx.period.from)
+    fast_loss_spans(&daily, span, limit).filter(|(_, (_, end, _), _)| *end >= ctx.period.from)
 }
 
 /// The `fast_loss` flag; returns whether it was raised.
@@ -1057,20 +1064,32 @@ fn push_fast_loss_flag(
     levels: &[(NaiveDate, f64)],
 ) -> bool {
     let (limit, span) = fast_change_settings(ctx);
-    let Some((fastest, (d0, d1, rate))) = fast_spans_in_period(ctx, levels, 1.0) else {
+    let Some((fastest, (d0, d1, rate), from)) = fast_spans_in_period(ctx, levels, 1.0) else {
         return false;
+    };
+    // How long the loss has been this fast, not only the test's window: "over 21 days in a row
+    // (most recently 6 Nov to 27 Nov)" was all a clinician read of 26 weeks at 1.6 kg a week.
+    let when = if from < d0 {
+        format!(
+            "in every {span} days from {from} to {d1} (the last {span}, {d0} to {d1}: about {} a \
+             week; fastest about {} a week)",
+            kg_lb(rate),
+            kg_lb(fastest),
+        )
+    } else {
+        format!(
+            "over {span} days in a row ({d0} to {d1}: about {} a week; fastest about {} a week)",
+            kg_lb(rate),
+            kg_lb(fastest),
+        )
     };
     output.push_flag(
         OutcomesFlag::FastLoss.as_str(),
         FlagSeverity::Clinical,
         format!(
-            "Weight came down faster than {} a week over {span} days in a row (most \
-             recently {d0} to {d1}: about {} a week; fastest about {} a week). Losing \
-             more than about 1 kg (2 lb) a week for several weeks is worth reviewing \
-             with a licensed clinician.",
+            "Weight came down faster than {} a week {when}. Losing more than about 1 kg (2 lb) \
+             a week for several weeks is worth reviewing with a licensed clinician.",
             kg_lb(limit),
-            kg_lb(rate),
-            kg_lb(fastest),
         ),
     );
     true
@@ -1090,7 +1109,7 @@ fn push_fast_gain_flag(
 ) {
     let (limit, span) = fast_change_settings(ctx);
     // The same spans as for fast loss, on the level turned upside down.
-    let Some((_, (d0, d1, rate))) = fast_spans_in_period(ctx, levels, -1.0) else {
+    let Some((_, (d0, d1, rate), _)) = fast_spans_in_period(ctx, levels, -1.0) else {
         return;
     };
     output.push_flag(

@@ -428,6 +428,16 @@ fn fast_loss_needs_a_sustained_rate_above_the_limit() {
         "{}",
         out.flags[0].message
     );
+    // The message says how long the loss has been this fast, not only the test's 21 days
+    // (it read "over 21 days in a row (most recently …)" after months of it): fast from day 0
+    // to day 30, every 21-day window from 2027-03-01 on.
+    assert_eq!(
+        out.flags[0].message,
+        "Weight came down faster than 1.0 kg (2.2 lb) a week in every 21 days from 2027-03-01 \
+         to 2027-03-31 (the last 21, 2027-03-10 to 2027-03-31: about 1.4 kg (3.1 lb) a week; \
+         fastest about 1.4 kg (3.1 lb) a week). Losing more than about 1 kg (2 lb) a week for \
+         several weeks is worth reviewing with a licensed clinician."
+    );
 
     // Exactly 1 kg/week for 30 days does not *exceed* the limit.
     let edge = trend_output(30, 30, -1.0, |k| 100.0 - k as f64 / 7.0);

@@ -1602,6 +1602,17 @@ fn energy_and_grams_written_with_their_units_are_read() {
     );
     assert_eq!(diags.len(), 1, "{diags:#?}");
     assert!(diags[0].message.contains("not a number"), "{}", diags[0]);
+    // Its example is an energy, not a weight (it read "e.g. `72.5`" and "`72.5 kg`").
+    assert_eq!(
+        diags[0].expected.as_deref(),
+        Some("a number with a decimal point, e.g. `1850`")
+    );
+    assert_eq!(
+        diags[0].hint.as_deref(),
+        Some(
+            "write a number such as `1850` (no words; where a unit is allowed, after the number: `1850 kcal`)"
+        )
+    );
     // A unit in the cell that the header contradicts refuses the file at that cell.
     let mut diags = Vec::new();
     let v = parse_intake(
