@@ -1179,8 +1179,15 @@ fn adherence_section(
             &v,
         ));
     }
-    if let Some(v) = a.activity_minutes_per_week {
-        // Never "0 minutes" when the log could not be read: say so instead.
+    // Never "0 minutes" when the log could not be read or there is none (the module then gives
+    // no figure): say so instead.
+    let shown = match unread {
+        ActivityUnread::File | ActivityUnread::NoLog => {
+            Some(a.activity_minutes_per_week.unwrap_or(0.0))
+        }
+        _ => a.activity_minutes_per_week,
+    };
+    if let Some(v) = shown {
         let text = match unread {
             ActivityUnread::File => {
                 "activity could not be read (activity.csv was not used; see the notes on your data)"

@@ -286,7 +286,7 @@ impl MetricModule for AdherenceModule {
                     names::ACTIVITY_MINUTES_PER_WEEK,
                     "scalar",
                     "min/wk",
-                    "moderate-equivalent minutes per week, period",
+                    "moderate-equivalent minutes per week, period (empty when no activity was logged since enrolment)",
                 ),
                 OutputSpec::new(
                     names::SESSIONS_OFFERED,
@@ -328,7 +328,7 @@ impl MetricModule for AdherenceModule {
                     names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,
                     "scalar",
                     "%",
-                    "weeks of the period meeting the activity target",
+                    "weeks of the period meeting the activity target (empty when no activity was logged since enrolment)",
                 ),
                 OutputSpec::new(
                     names::LONGEST_WEIGH_IN_STREAK_DAYS,
@@ -374,11 +374,16 @@ impl MetricModule for AdherenceModule {
         let rec = Records::collect(data, start, end);
         let span = Span { start, end };
         let weeks = weeks(&rec, data, span);
+        // No activity entry at all from enrolment to the end of observation (no activity.csv,
+        // an empty one, or one that could not be read): the activity figures are unknown, not
+        // zero. Counted as 0 minutes, a group of people who never logged activity had a median
+        // of "0 minutes per week" in the sponsor's report and in the tidy metrics.
+        let activity_logged = !rec.activity_days.is_empty();
 
         let mut output = ModuleOutput::default();
-        output.tables.push(weekly_table(&weeks));
-        push_weekly_series(&mut output, &weeks);
-        push_period_scalars(&mut output, ctx, &rec, &weeks, span);
+        output.tables.push(weekly_table(&weeks, activity_logged));
+        push_weekly_series(&mut output, &weeks, activity_logged);
+        push_period_scalars(&mut output, ctx, &rec, &weeks, span, activity_logged);
         push_streaks_and_gap(&mut output, ctx, &rec, span, withdrawn);
         Ok(output)
     }
@@ -428,8 +433,8 @@ fn weeks(rec: &Records, data: &ParticipantData, span: Span) -> Vec<Week> {
     weeks
 }
 
-/// The `weekly` table.
-fn weekly_table(weeks: &[Week]) -> Table {
+/// The `weekly` table (activity columns empty when `activity_logged` is false).
+fn weekly_table(weeks: &[Week], activity_logged: bool) -> Table {
     Table {
         name: names::WEEKLY.into(),
         label: WEEKLY_LABEL.into(),
@@ -442,12 +447,12 @@ fn weekly_table(weeks: &[Week]) -> Table {
                     days_covered: Some(w.covered as f64),
                     weigh_ins: Some(w.weigh_ins as f64),
                     food_log_days: Some(w.food_log_days as f64),
-                    activity_minutes: Some(w.activity_minutes),
+                    activity_minutes: Some(w.activity_minutes).filter(|_| activity_logged),
                     sessions_offered: Some(w.sessions_offered as f64),
                     sessions_attended: Some(w.sessions_attended as f64),
                     met_weigh_in_target: Some(w.met_weigh_in),
                     met_food_log_target: Some(w.met_food_log),
-                    met_activity_target: Some(w.met_activity),
+                    met_activity_target: Some(w.met_activity).filter(|_| activity_logged),
                 }
                 .write()
             })
@@ -455,8 +460,9 @@ fn weekly_table(weeks: &[Week]) -> Table {
     }
 }
 
-/// The weekly series: activity minutes, days weighed, days with a food log.
-fn push_weekly_series(output: &mut ModuleOutput, weeks: &[Week]) {
+/// The weekly series: activity minutes (no points when `activity_logged` is false), days
+/// weighed, days with a food log.
+fn push_weekly_series(output: &mut ModuleOutput, weeks: &[Week], activity_logged: bool) {
     let series = |name: &str, unit: &str, label: &str, f: &dyn Fn(&Week) -> f64| Series {
         name: name.into(),
         unit: unit.into(),
@@ -464,6 +470,7 @@ fn push_weekly_series(output: &mut ModuleOutput, weeks: &[Week]) {
         label: label.into(),
         points: weeks
             .iter()
+            .filter(|_| activity_logged || name != names::WEEKLY_ACTIVITY_MINUTES)
             .map(|w| Point {
                 date: w.start,
                 value: f(w),
@@ -499,6 +506,7 @@ fn push_period_scalars(
     rec: &Records,
     weeks: &[Week],
     span: Span,
+    activity_logged: bool,
 ) {
     let Span { start, end } = span;
     let (pa, pb) = (ctx.period.from.max(start), end);
@@ -518,7 +526,7 @@ fn push_period_scalars(
     );
     output.push_scalar(
         names::ACTIVITY_MINUTES_PER_WEEK,
-        per_week(sum_in(&rec.activity_minutes, pa, pb)),
+        per_week(sum_in(&rec.activity_minutes, pa, pb)).filter(|_| activity_logged),
         "min/wk",
         "Activity minutes per week (moderate-equivalent)",
     );
@@ -569,7 +577,7 @@ fn push_period_scalars(
         .collect();
     output.push_scalar(
         names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,
-        (!period_weeks.is_empty()).then(|| {
+        (activity_logged && !period_weeks.is_empty()).then(|| {
             100.0 * period_weeks.iter().filter(|w| w.met_activity).count() as f64
                 / period_weeks.len() as f64
         }),

@@ -473,3 +473,49 @@ fn attendance_to_date_counts_every_session_since_enrolment() {
     assert_eq!(out.scalar("sessions_attended_to_date"), Some(1.0));
     assert_eq!(out.scalar("attendance_to_date_percent"), Some(50.0));
 }
+
+/// No activity entry since enrolment: the activity figures are unknown, not zero. Counted as
+/// 0 minutes, people who never logged activity made a group median of "0 minutes per week" in
+/// the sponsor's report and 0 in the tidy metrics. One light entry (a logged stroll, 0
+/// moderate-equivalent minutes) is a log: the figures are then 0 and the target not met.
+#[test]
+fn no_activity_log_gives_no_activity_figures_not_zero() {
+    let c = ctx("2026-05-01", "2026-05-31");
+    let mut data = empty("2026-04-01");
+    data.weights = vec![weigh("2026-05-04", 80.0), weigh("2026-05-11", 79.5)];
+    let out = run(&c, &data);
+    assert_eq!(out.scalar("activity_minutes_per_week"), None);
+    assert_eq!(out.scalar("weeks_meeting_activity_target_percent"), None);
+    assert!(
+        out.series("weekly_activity_minutes")
+            .unwrap()
+            .points
+            .is_empty()
+    );
+    let t = out.table("weekly").unwrap();
+    let (am, met) = (
+        col(&out, "activity_minutes"),
+        col(&out, "met_activity_target"),
+    );
+    assert!(!t.rows.is_empty());
+    assert!(
+        t.rows
+            .iter()
+            .all(|r| matches!(r[am], Cell::Empty) && matches!(r[met], Cell::Empty))
+    );
+    // The other figures are unchanged: two weigh-in days over the 31 days of May.
+    let w = out.scalar("weigh_ins_per_week").unwrap();
+    assert!((w - 2.0 * 7.0 / 31.0).abs() < 1e-12, "{w}");
+
+    data.activity = vec![act("2026-04-20", 30.0, 2.5)];
+    let out = run(&c, &data);
+    assert_eq!(out.scalar("activity_minutes_per_week"), Some(0.0));
+    assert_eq!(
+        out.scalar("weeks_meeting_activity_target_percent"),
+        Some(0.0)
+    );
+    assert_eq!(
+        out.series("weekly_activity_minutes").unwrap().points.len(),
+        t.rows.len()
+    );
+}
