@@ -880,6 +880,33 @@ fn a_misspelt_field_in_an_override_fails_the_run_naming_template_and_line() {
     assert!(!prog.dir.join("reports/participants").exists());
 }
 
+/// Only the templates themselves are read from the template folder. The run's fingerprint read
+/// every file under it, so a recording kept beside the templates (over the 64 MiB input limit)
+/// stopped the run with exit 3 after `check` had passed the program, and `templates: ..` read
+/// every file around the program.
+#[test]
+fn a_large_file_beside_the_templates_is_not_read() {
+    let prog = ProgramTest::fixture("report-small");
+    std::fs::create_dir(prog.dir.join("templates")).unwrap();
+    let own = BUILTIN
+        .iter()
+        .find(|(n, _)| *n == "participant.html.hbs")
+        .unwrap()
+        .1
+        .replace("<main>", "<main><p>OVERRIDE-MARKER-7732</p>");
+    std::fs::write(prog.dir.join("templates/participant.html.hbs"), own).unwrap();
+    // Sparse: 70 MiB long, nothing written.
+    std::fs::File::create(prog.dir.join("templates/kickoff-recording.mp4"))
+        .unwrap()
+        .set_len(70 * 1024 * 1024)
+        .unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("reports/participants/SG-003.html")).unwrap();
+    assert!(html.contains("OVERRIDE-MARKER-7732"));
+}
+
 #[test]
 fn overriding_one_template_leaves_the_others_built_in() {
     let prog = ProgramTest::fixture("report-small");
