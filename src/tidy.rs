@@ -48,7 +48,7 @@ pub fn participant(data: &ParticipantData, results: &ModuleResults) -> TidyParti
         failures: results
             .failures
             .iter()
-            .map(|f| (f.module.clone(), f.message.clone()))
+            .map(|f| (f.module.clone(), f.for_outputs()))
             .collect(),
     };
     for (module, out) in &results.outputs {

@@ -22,6 +22,39 @@ pub struct ModuleFailure {
     pub message: String,
 }
 
+/// How an external module's failure is written in the outputs, ahead of the run log's full text.
+const EXTERNAL: &str = "external module: ";
+
+impl ModuleFailure {
+    /// The failure as the outputs (the participant's report, the tidy metrics, the cache) write
+    /// it. An external module's own words — its `error` message, its last line on standard
+    /// error, a piece of its output — and the command's path can carry the machine's paths, user
+    /// and host names (a Python traceback does), so for an external module only cohortpress's
+    /// description of what happened is kept (`external module: reported an error`, `exited with
+    /// status 3`, `did not finish within 30 s and was stopped`); the full text is in the run
+    /// log. A built-in module's message is cohortpress's own and is kept whole.
+    pub fn for_outputs(&self) -> String {
+        let Some(rest) = self.message.strip_prefix(EXTERNAL) else {
+            return self.message.clone();
+        };
+        let own = rest
+            .split([':', ';', '('])
+            .next()
+            .unwrap_or("")
+            .split_whitespace()
+            .map(|w| {
+                if w.contains(['/', '\\']) {
+                    if w.starts_with('`') { "`…`" } else { "…" }
+                } else {
+                    w
+                }
+            })
+            .collect::<Vec<_>>()
+            .join(" ");
+        format!("{EXTERNAL}{own} (the run log has the details)")
+    }
+}
+
 /// What the modules produced for one participant.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct ModuleResults {
@@ -79,10 +112,21 @@ impl ModuleSet {
             let outcome = catch_unwind(AssertUnwindSafe(|| entry.module.compute(&ctx, data)));
             match outcome {
                 Ok(Ok(output)) => results.outputs.push((id, output)),
-                Ok(Err(e)) => results.failures.push(ModuleFailure {
-                    module: id,
-                    message: e.message,
-                }),
+                Ok(Err(e)) => {
+                    if entry.command.is_some() {
+                        // The outputs keep only cohortpress's words (`for_outputs`); the module's
+                        // own are logged here, with whom they concern.
+                        tracing::warn!(
+                            "{}: module {id} failed: {}",
+                            data.profile.id,
+                            e.message.replace('\n', " |")
+                        );
+                    }
+                    results.failures.push(ModuleFailure {
+                        module: id,
+                        message: e.message,
+                    })
+                }
                 Err(panic) => {
                     let what = panic
                         .downcast_ref::<&str>()

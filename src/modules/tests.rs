@@ -539,3 +539,47 @@ fn the_two_modules_intake_floors_must_agree() {
     );
     assert!(real("  - id: trend\n  - id: energy\n  - id: outcomes\n").is_ok());
 }
+
+/// The outputs keep cohortpress's description of an external module's failure and leave out
+/// its own words and any path; a built-in module's message is kept whole.
+#[test]
+fn an_external_failure_is_written_in_the_outputs_without_the_modules_words_or_paths() {
+    let f = |message: &str| {
+        ModuleFailure {
+            module: "m".into(),
+            message: message.into(),
+        }
+        .for_outputs()
+    };
+    let tail = " (the run log has the details)";
+    for (message, kept) in [
+        (
+            "external module: reported an error: cannot open /home/ana/x.csv",
+            "external module: reported an error",
+        ),
+        (
+            "external module: exited with status 3; its last error line: `File /home/ana/m.py`",
+            "external module: exited with status 3",
+        ),
+        (
+            "external module: program `/home/ana/plugins/m.py` was not found",
+            "external module: program `…` was not found",
+        ),
+        (
+            "external module: cannot start `/opt/m`: permission denied; make it executable",
+            "external module: cannot start `…`",
+        ),
+        (
+            "external module: cannot create an empty working folder for it in /tmp/ana: denied",
+            "external module: cannot create an empty working folder for it in …",
+        ),
+        (
+            "external module: did not finish within 2 s and was stopped; if it needs longer",
+            "external module: did not finish within 2 s and was stopped",
+        ),
+    ] {
+        assert_eq!(f(message), format!("{kept}{tail}"), "{message}");
+    }
+    assert_eq!(f("skipped: needs trend"), "skipped: needs trend");
+    assert_eq!(f("cannot count today"), "cannot count today");
+}

@@ -272,7 +272,11 @@ pub fn parse_profile(
         match text {
             Some(t) if !crate::text::neutralise(&t).trim().is_empty() => {
                 let t = invisible_checked(&t, &format!("group `{k}`"), "groups", &at, ctx, diags);
-                groups.insert(k.clone(), t.trim().to_string());
+                // Composed form (NFC): `Kíln` with a precomposed `í` and with `i` plus a combining
+                // accent (as macOS and some keyboards write it) look the same and are one group;
+                // compared as written they made one site two sections of the group report.
+                use unicode_normalization::UnicodeNormalization;
+                groups.insert(k.clone(), t.trim().nfc().collect::<String>());
             }
             _ => diags.push(at(
                 "groups",
@@ -536,6 +540,21 @@ flags: [glucose-lowering-medication]
             "{}",
             site.message
         );
+    }
+
+    /// `Kíln Röw` with precomposed letters and with combining accents (as macOS writes it) look
+    /// the same; read as written, the group report showed the one site as two sections of
+    /// 11 each, with different figures. Both read as the composed form.
+    #[test]
+    fn a_group_value_with_combining_accents_reads_as_its_composed_form() {
+        let composed = "K\u{ed}ln R\u{f6}w";
+        for written in ["K\\u00EDln R\\u00F6w", "Ki\\u0301ln Ro\\u0308w"] {
+            let text = GOOD.replace("site: North Plant", &format!("site: \"{written}\""));
+            assert!(text.contains(written), "{text}");
+            let (p, d) = parse(&text);
+            assert_eq!(p.unwrap().groups["site"], composed, "{written}");
+            assert!(d.is_empty(), "{d:?}");
+        }
     }
 
     #[test]

@@ -278,7 +278,7 @@ pub fn build(
         module_failures: results
             .failures
             .iter()
-            .map(|f| format!("{}: {}", f.module, f.message))
+            .map(|f| format!("{}: {}", f.module, f.for_outputs()))
             .collect(),
         extra: extra_modules(results),
         cautions: cautions::participant(&thresholds),

@@ -50,6 +50,9 @@ pub struct TemplateSet {
     hb: Handlebars<'static>,
     /// Where each template came from (`built-in` or a path), by file name.
     pub sources: Vec<(String, String)>,
+    /// Whether any file comes from the program's own folder: then every page it makes is checked
+    /// as a browser reads it ([`output_problem`]) before it is used.
+    overridden: bool,
 }
 
 /// Why templates could not be loaded.
@@ -116,7 +119,12 @@ impl TemplateSet {
                 .map_err(|e| TemplateError::Parse(format!("{src} ({name}): {e}")))?;
             sources.push((name.clone(), src.clone()));
         }
-        Ok(TemplateSet { hb, sources })
+        let overridden = sources.iter().any(|(_, src)| src != "built-in");
+        Ok(TemplateSet {
+            hb,
+            sources,
+            overridden,
+        })
     }
 
     /// Where template `name` (e.g. `participant.html`) comes from, for messages:
@@ -140,7 +148,30 @@ impl TemplateSet {
         if let serde_json::Value::Object(m) = &mut value {
             m.insert("charts".into(), serde_json::Value::Object(charts));
         }
-        self.hb.render(name, &value).map_err(|e| {
+        let html = self.render_unchecked(name, &value)?;
+        // The check of the template files at load time reads their text; handlebars can build
+        // what that text does not show (`<scr{{!}}ipt>`, `hr{{"e"}}f=`, `ur{{!}}l(` or a tag
+        // split across partials), and input text printed inside CSS is CSS. So the page an
+        // override made is checked again as a browser parses it.
+        if self.overridden
+            && let Some(what) = output_problem(&html)
+        {
+            return Err(RenderError::Template(format!(
+                "the page made from {} {what} (where the file's text does not show it, a \
+                 handlebars expression built it: a comment, literal or partial inside a tag, an \
+                 attribute or CSS, or input text printed into CSS)",
+                self.source_of(name)
+            )));
+        }
+        Ok(html)
+    }
+
+    fn render_unchecked(
+        &self,
+        name: &str,
+        value: &serde_json::Value,
+    ) -> Result<String, RenderError> {
+        self.hb.render(name, value).map_err(|e| {
             // Name the file the failing template came from: a program's own override is
             // usually the one to fix. (An error inside a partial names the partial.)
             let failing = e.template_name.clone().unwrap_or_else(|| name.to_string());
@@ -205,8 +236,31 @@ fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, Templa
 
 /// Elements that run code, embed another document or send the page somewhere: never part of a
 /// report.
+///
+/// Also refused: SVG animation elements, which can set a link's address when the page is open
+/// (`<animate attributeName="href" values="javascript:…">`), and `<noscript>`, `<noembed>` and
+/// `<noframes>`, whose content a browser reads as text or as markup depending on its settings
+/// (what the check reads as text another browser may load as an image).
 const ACTIVE_ELEMENTS: &[&str] = &[
-    "script", "iframe", "frame", "frameset", "object", "embed", "applet", "base", "form", "portal",
+    "script",
+    "iframe",
+    "frame",
+    "frameset",
+    "object",
+    "embed",
+    "applet",
+    "base",
+    "form",
+    "portal",
+    "fencedframe",
+    "noscript",
+    "noembed",
+    "noframes",
+    "animate",
+    "set",
+    "animatemotion",
+    "animatetransform",
+    "animatecolor",
 ];
 
 /// Attributes that hold a URL the browser may load or follow (HTML Living Standard's URL-valued
@@ -417,6 +471,163 @@ fn css_url(css: &[u8], offset: usize) -> Option<(usize, String)> {
         }
     }
     None
+}
+
+/// What is wrong with a page an override made, read as a browser reads it (html5ever, the
+/// HTML standard's parser: entities decoded, attribute names as the browser keeps them, SVG and
+/// `<template>` content included), if anything: the same rules as [`override_problem`] applies
+/// to the template files, on the result. A problem is described for the message
+/// ("holds `<script>`…").
+pub fn output_problem(html: &str) -> Option<String> {
+    let page = scraper::Html::parse_document(html);
+    for node in page.tree.nodes() {
+        let scraper::Node::Element(e) = node.value() else {
+            continue;
+        };
+        let element = e.name().to_ascii_lowercase();
+        if ACTIVE_ELEMENTS.contains(&element.as_str()) {
+            return Some(format!(
+                "holds `<{element}>`, which is not allowed in a report: a report runs no code \
+                 and embeds or submits to no other page"
+            ));
+        }
+        if element == "style" {
+            let css: String = node
+                .descendants()
+                .filter_map(|d| match d.value() {
+                    scraper::Node::Text(t) => Some(&**t),
+                    _ => None,
+                })
+                .collect();
+            if let Some(what) = css_outside(&css) {
+                return Some(format!("holds a `<style>` element with {what}"));
+            }
+        }
+        for (attr, value) in e.attrs() {
+            let attr = attr.to_ascii_lowercase();
+            if attr.starts_with("on") || attr == "http-equiv" || attr == "srcdoc" {
+                return Some(format!(
+                    "holds the attribute `{attr}` (on `<{element}>`), which is not allowed in a \
+                     report: a report runs no code and never reloads or redirects itself"
+                ));
+            }
+            // A browser strips leading and trailing spaces and control characters from a URL.
+            let address = value.trim_matches(|c: char| c <= ' ');
+            if URL_ATTRIBUTES.contains(&attr.as_str())
+                && !address.is_empty()
+                && !address.starts_with('#')
+            {
+                return Some(format!(
+                    "holds `{attr}=\"{}\"` (on `<{element}>`), an address outside the report; \
+                     a report is self-contained: only links within the page (`#…`) are allowed",
+                    clip(value, 200)
+                ));
+            }
+            // `style`, and SVG's presentation attributes (`fill="url(…)"`, `filter`, `mask`).
+            if let Some(what) = css_outside(value) {
+                return Some(format!(
+                    "holds the attribute `{attr}` (on `<{element}>`) with {what}"
+                ));
+            }
+        }
+    }
+    None
+}
+
+/// The first reference to an outside resource in CSS as a browser reads it, described: comments
+/// left out and escapes decoded (`u\72l(` is `url(`), then `@import`, `url(…)` other than a
+/// fragment (`url(#clip)`), or a function that takes an address as a string (`image-set("…")`,
+/// `image("…")`, `src("…")`, `cross-fade(…)`).
+fn css_outside(css: &str) -> Option<String> {
+    if !css.contains(['(', '@']) {
+        return None;
+    }
+    let plain = css_plain(css);
+    if plain.contains("@import") {
+        return Some("`@import`: a report loads no outside style sheet".into());
+    }
+    let mut from = 0;
+    while let Some(at) = plain[from..].find("url(").map(|p| from + p) {
+        let arg = plain[at + 4..].trim_start();
+        let arg = arg.strip_prefix(['"', '\'']).unwrap_or(arg).trim_start();
+        if !arg.starts_with('#') {
+            return Some(format!(
+                "`{}`: a report loads nothing from outside itself",
+                clip(&plain[at..], 80)
+            ));
+        }
+        from = at + 4;
+    }
+    for function in ["image-set(", "image(", "src(", "cross-fade("] {
+        if let Some(at) = plain.find(function) {
+            return Some(format!(
+                "`{}`: a report loads nothing from outside itself",
+                clip(&plain[at..], 80)
+            ));
+        }
+    }
+    None
+}
+
+/// At most `n` characters of `s`, with `…` when cut (a message quotes a value, not a page).
+fn clip(s: &str, n: usize) -> String {
+    match s.char_indices().nth(n) {
+        Some((at, _)) => format!("{}…", &s[..at]),
+        None => s.to_string(),
+    }
+}
+
+/// CSS as its tokenizer reads it, lower case: comments left out and escapes decoded (CSS Syntax
+/// Level 3, 4.3.7: a backslash with one to six hex digits and an optional space is that code
+/// point, a backslash before a line end is dropped, before anything else it is that character).
+fn css_plain(css: &str) -> String {
+    let mut out = String::with_capacity(css.len());
+    let mut chars = css.chars().peekable();
+    while let Some(c) = chars.next() {
+        match c {
+            '/' if chars.peek() == Some(&'*') => {
+                chars.next();
+                let mut last = ' ';
+                for c in chars.by_ref() {
+                    if last == '*' && c == '/' {
+                        break;
+                    }
+                    last = c;
+                }
+            }
+            '\\' => match chars.peek().copied() {
+                Some(h) if h.is_ascii_hexdigit() => {
+                    let mut code = 0u32;
+                    let mut n = 0;
+                    while n < 6
+                        && let Some(d) = chars.peek().and_then(|h| h.to_digit(16))
+                    {
+                        code = code * 16 + d;
+                        chars.next();
+                        n += 1;
+                    }
+                    if chars.peek().is_some_and(|w| w.is_ascii_whitespace()) {
+                        chars.next();
+                    }
+                    out.push(
+                        char::from_u32(code)
+                            .filter(|&c| c != '\0')
+                            .unwrap_or('\u{fffd}'),
+                    );
+                }
+                Some('\n' | '\r' | '\x0c') => {
+                    chars.next();
+                }
+                Some(other) => {
+                    chars.next();
+                    out.push(other);
+                }
+                None => {}
+            },
+            c => out.push(c),
+        }
+    }
+    out.to_lowercase()
 }
 
 /// Partials that include each other (a → b → a) overflow the stack in handlebars: refuse them.

@@ -578,7 +578,7 @@ fn process_participant(
         rec.failures = results
             .failures
             .iter()
-            .map(|f| (f.module.clone(), f.message.clone()))
+            .map(|f| (f.module.clone(), f.for_outputs()))
             .collect();
         let ctx =
             report::participant_context(&plan.report_scope(), &data, &results, &loaded.diagnostics);

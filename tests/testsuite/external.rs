@@ -649,6 +649,77 @@ const MARCH: [&str; 8] = [
     "html",
 ];
 
+/// An external module's own words — its `error` message, its last line on standard error — can
+/// hold the machine's paths, user and host names (a Python traceback does). They reached the
+/// participant's report ("Some figures could not be computed this month: …"), the tidy metrics
+/// and the cache, together with cohortpress's random working folder. The outputs now keep only
+/// cohortpress's description of what happened; the run log has the rest.
+#[test]
+fn an_external_modules_own_words_stay_in_the_run_log() {
+    let t = fixture_with_example();
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        text.replace(
+            "modules:\n",
+            &format!(
+                "modules:\n  - id: bad\n    command: [{}, bad, leak, XP-02]\n",
+                repo_root()
+                    .join("tests/fixtures/fake-plugins/fake.py")
+                    .display()
+            ),
+        ),
+    )
+    .unwrap();
+    let out = t.run(&MARCH);
+    assert_eq!(
+        out.code,
+        cohortpress::exit_code::MODULE_FAILED,
+        "{}",
+        out.stderr
+    );
+    // The log keeps the details, with whom they concern.
+    assert!(
+        out.stderr
+            .contains("XP-02: module bad failed: external module: reported an error: cannot open /home/ana.example/x.csv"),
+        "{}",
+        out.stderr
+    );
+    let host = std::fs::read_to_string("/proc/sys/kernel/hostname")
+        .map(|h| h.trim().to_string())
+        .unwrap_or_default();
+    for entry in walkdir::WalkDir::new(t.dir.join("reports")) {
+        let entry = entry.unwrap();
+        if !entry.file_type().is_file() {
+            continue;
+        }
+        let bytes = std::fs::read(entry.path()).unwrap();
+        let text = String::from_utf8_lossy(&bytes);
+        for leak in ["ana.example", "cohortpress-module-", "Traceback"] {
+            assert!(!text.contains(leak), "{leak} in {}", entry.path().display());
+        }
+        if host.len() > 3 {
+            assert!(
+                !text.contains(&format!(" on {host} ")),
+                "the host name in {}",
+                entry.path().display()
+            );
+        }
+    }
+    let report = std::fs::read_to_string(t.dir.join("reports/participants/XP-02.html")).unwrap();
+    assert!(
+        report.contains("bad: external module: reported an error (the run log has the details)"),
+        "{report}"
+    );
+    assert_eq!(participants_csv(&t)["XP-02"]["module_failures"], "bad");
+    // Another participant's figures are untouched.
+    assert_eq!(
+        participants_csv(&t)["XP-01"]["steps.mean_daily_steps"],
+        "7260"
+    );
+}
+
 #[test]
 fn binary_lists_the_external_module() {
     let t = fixture_with_example();

@@ -756,6 +756,97 @@ fn an_override_with_raw_output_code_or_outside_addresses_is_refused_at_its_line(
     }
 }
 
+/// What a template file's text does not show, handlebars can still build: a comment, a literal
+/// or a partial inside a tag name, an attribute name or CSS (`<scr{{!}}ipt>`, `hr{{!}}ef=`,
+/// `ur{{!}}l(`), CSS escapes (`u\72l(`), a `<noscript>` (its content is markup or text depending on
+/// the browser's settings), and input text printed into CSS. Each passed the check of the files and reached the HTML report as a live `<script>` or
+/// an outside address; the page an override made is now checked as a browser parses it, and the
+/// render fails naming the template file.
+#[test]
+fn an_override_that_builds_code_or_outside_addresses_at_render_time_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::create_dir(dir.path().join("partials")).unwrap();
+    std::fs::write(dir.path().join("partials/tail.hbs"), "ipt>").unwrap();
+    let file = dir.path().join("participant.html.hbs");
+    let ctx =
+        serde_json::json!({"name": "Ana", "note": "x;background:url(https://t.example/p.gif)"});
+    for (template, says) in [
+        ("<scr{{!x}}ipt>alert(1)</scr{{!x}}ipt>", "`<script>`"),
+        ("<{{!}}script>alert(1)</script>", "`<script>`"),
+        ("<scr{{> tail}}1</script>", "`<script>`"),
+        (
+            "<img s{{!}}rc=\"https://t.example/p.gif\">",
+            "`src=\"https://t.example/p.gif\"`",
+        ),
+        (
+            "<a hr{{!x}}ef=\"javascript:alert(1)\">x</a>",
+            "`href=\"javascript:alert(1)\"`",
+        ),
+        (
+            "<svg><a xlink:hr{{!}}ef=\"https://t.example/\"><text>x</text></a></svg>",
+            "`href=\"https://t.example/\"`",
+        ),
+        ("<p o{{!}}nclick=\"x()\">x</p>", "`onclick`"),
+        (
+            "<div style=\"background:ur{{!}}l(https://t.example/p.gif)\">x</div>",
+            "`url(https://t.example/p.gif)`",
+        ),
+        (
+            "<div style=\"background:u\\72l(https://t.example/p.gif)\">x</div>",
+            "`url(https://t.example/p.gif)`",
+        ),
+        (
+            "<style>@imp{{!}}ort 'https://t.example/s.css';</style>",
+            "`@import`",
+        ),
+        (
+            "<style>p{background:image-set('https://t.example/p.gif' 1x)}</style>",
+            "`image-set(",
+        ),
+        (
+            "<svg><rect fill=\"ur{{!}}l(https://t.example/p.svg#g)\"/></svg>",
+            "`fill`",
+        ),
+        (
+            "<noscr{{!}}ipt><p title=\"</noscript><img src=https://t.example/p.gif>\"></p></noscript>",
+            "`<noscript>`",
+        ),
+        // Input text printed into CSS is CSS.
+        (
+            "<p style=\"color:{{note}}\">{{name}}</p>",
+            "`url(https://t.example/p.gif)`",
+        ),
+    ] {
+        std::fs::write(&file, template).unwrap();
+        let set = match TemplateSet::with_overrides(Some(dir.path())) {
+            Ok(set) => set,
+            // The file's own text already shows it: refused at load, as before.
+            Err(e) => panic!("the load-time check was meant to miss {template}: {e}"),
+        };
+        let err = match set.render("participant.html", &ctx, serde_json::Map::new()) {
+            Ok(html) => panic!("rendered {template} as {html}"),
+            Err(e) => e.to_string(),
+        };
+        assert!(err.contains(says), "{template}: {err}");
+        assert!(err.contains("participant.html.hbs"), "{template}: {err}");
+    }
+    // Text that mentions these things, links within the page and fragment references stay allowed.
+    std::fs::write(
+        &file,
+        "<p>The <i>&lt;script&gt;</i> {{note}}</p><a href=\"#s-{{name}}\">{{name}}</a>\
+         <svg><rect fill=\"url(#g)\"/></svg><style>p{content:\"\\2014\"}</style>",
+    )
+    .unwrap();
+    let set = TemplateSet::with_overrides(Some(dir.path())).unwrap();
+    let html = set
+        .render("participant.html", &ctx, serde_json::Map::new())
+        .unwrap();
+    assert!(
+        html.contains("background:url(https://t.example/p.gif)</p>"),
+        "{html}"
+    );
+}
+
 #[test]
 fn a_misspelt_field_in_an_override_fails_the_run_naming_template_and_line() {
     let prog = ProgramTest::fixture("report-small");
@@ -787,6 +878,33 @@ fn a_misspelt_field_in_an_override_fails_the_run_naming_template_and_line() {
     );
     // Nothing was published.
     assert!(!prog.dir.join("reports/participants").exists());
+}
+
+/// Only the templates themselves are read from the template folder. The run's fingerprint read
+/// every file under it, so a recording kept beside the templates (over the 64 MiB input limit)
+/// stopped the run with exit 3 after `check` had passed the program, and `templates: ..` read
+/// every file around the program.
+#[test]
+fn a_large_file_beside_the_templates_is_not_read() {
+    let prog = ProgramTest::fixture("report-small");
+    std::fs::create_dir(prog.dir.join("templates")).unwrap();
+    let own = BUILTIN
+        .iter()
+        .find(|(n, _)| *n == "participant.html.hbs")
+        .unwrap()
+        .1
+        .replace("<main>", "<main><p>OVERRIDE-MARKER-7732</p>");
+    std::fs::write(prog.dir.join("templates/participant.html.hbs"), own).unwrap();
+    // Sparse: 70 MiB long, nothing written.
+    std::fs::File::create(prog.dir.join("templates/kickoff-recording.mp4"))
+        .unwrap()
+        .set_len(70 * 1024 * 1024)
+        .unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("reports/participants/SG-003.html")).unwrap();
+    assert!(html.contains("OVERRIDE-MARKER-7732"));
 }
 
 #[test]
