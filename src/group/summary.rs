@@ -909,6 +909,8 @@ pub(super) fn build(
         }
     };
     register(&mut program, 1, &mut table);
+    // Enrolment and the analyses' denominators (started, with a recent weigh-in).
+    table.set_headline_rank(Kind::Enrolled.priority() * 2);
     for (_, drafts, _) in &mut splits {
         for d in drafts.iter_mut().filter(|d| d.shown()) {
             register(d, 0, &mut table);
