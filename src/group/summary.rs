@@ -909,6 +909,8 @@ pub(super) fn build(
         }
     };
     register(&mut program, 1, &mut table);
+    // Enrolment and the analyses' denominators (started, with a recent weigh-in).
+    table.set_headline_rank(Kind::Enrolled.priority() * 2);
     for (_, drafts, _) in &mut splits {
         for d in drafts.iter_mut().filter(|d| d.shown()) {
             register(d, 0, &mut table);
@@ -1606,6 +1608,13 @@ fn known_week_n(s: &WeekSection, w: usize, unprinted: bool, min: u64) -> (u64, u
 /// protect the difference like any printed count. The difference is an existing cell when one
 /// counts exactly those people, else a hidden cell that is never printed
 /// ([`CellTable::add_difference`]). Pairs whose relation the table already has are skipped.
+///
+/// Counts of exactly the same people (in any sections: "active" and "with activity data" when
+/// every active person logged activity, or a site and a team of the same people) are linked by
+/// `one = other`: a reader who knows who has data reads a hidden one off the shown other, so
+/// both are shown or both hidden. Without it, "active" hidden as the complement for the few
+/// active people without a recent weigh-in, beside "with activity data" shown, gave those few
+/// exactly (active − with a recent weigh-in).
 fn link_nested_counts<'a>(
     table: &mut CellTable,
     drafts: impl Iterator<Item = &'a Draft>,
@@ -1625,8 +1634,15 @@ fn link_nested_counts<'a>(
         }
     }
     let mut by_set: HashMap<Vec<u64>, CellId> = HashMap::new();
-    for (_, c, bits, _) in &cells {
-        by_set.entry(bits.clone()).or_insert(*c);
+    let mut same: Vec<(CellId, CellId)> = Vec::new();
+    for (_, c, bits, n) in &cells {
+        let first = *by_set.entry(bits.clone()).or_insert(*c);
+        if first != *c && *n > 0 {
+            same.push((first, *c));
+        }
+    }
+    for (first, c) in same {
+        table.add_relation(first, vec![c]);
     }
     let mut known: BTreeSet<(CellId, Vec<CellId>)> = table
         .relations()

@@ -72,6 +72,16 @@ pub struct CellTable {
     /// Whether the relations left with one hidden member take their complement by looking
     /// ahead ([`CellTable::lookahead_complement`]) rather than each its own best.
     lookahead: bool,
+    /// Cells of this rank and above are the report's headline counts (enrolment, the
+    /// denominators): see [`CellTable::set_headline_rank`]. `None`: no such variant is run.
+    headline_rank: Option<u8>,
+    /// Whether complements are chosen by what hiding them costs in headline counts
+    /// ([`CellTable::cost`]) rather than by each cell's own rank.
+    protect: bool,
+    /// Each cell's cost as a complement while `protect` is set: the highest rank among the
+    /// shown cells its hiding forces through relations whose other members are shown zeros
+    /// (refreshed by [`CellTable::refresh_costs`]).
+    cost: Vec<u8>,
 }
 
 /// Most work the suppression of one table may take, in multiply-adds as counted by
@@ -130,6 +140,72 @@ impl CellTable {
     /// The complement rank given to a cell.
     pub fn priority(&self, c: CellId) -> u8 {
         self.cells[c].priority
+    }
+
+    /// Marks cells of rank `rank` and above as the report's headline counts. The suppression
+    /// then also tries choosing every complement so that these are hidden only when no other
+    /// cell will do, and keeps that result when it hides fewer important counts (see
+    /// [`CellTable::apply_with_ranges`]). Only the choice of complements changes: every result
+    /// passes the same checks.
+    pub fn set_headline_rank(&mut self, rank: u8) {
+        self.headline_rank = Some(rank);
+    }
+
+    /// What hiding `c` as a complement costs: its own rank, or while `protect` is set, the
+    /// highest rank among the cells it is tied to (see [`CellTable::refresh_costs`]).
+    fn cost(&self, c: CellId) -> u8 {
+        if self.protect {
+            self.cost.get(c).copied().unwrap_or(self.cells[c].priority)
+        } else {
+            self.cells[c].priority
+        }
+    }
+
+    /// Order in which shown cells are taken as complements (least first): a headline cell last
+    /// while `protect` is set, then non-zero before zero, then cost, value and id.
+    fn rank(&self, c: CellId) -> (bool, bool, u8, u64, CellId) {
+        let cell = &self.cells[c];
+        let cost = self.cost(c);
+        let headline = self.protect && self.headline_rank.is_some_and(|h| cost >= h);
+        (headline, cell.value == 0, cost, cell.value, c)
+    }
+
+    /// Recomputes each cell's cost for `protect`. A relation whose members other than two
+    /// shown cells are all shown zeros makes the two equal: hiding either one alone would let
+    /// a reader read it off the other, so hiding one hides both (a site's "did not reach 5 %"
+    /// when nobody there reached it is its number started). Cells so tied (transitively) cost
+    /// the highest rank among them.
+    fn refresh_costs(&mut self) {
+        if !self.protect {
+            return;
+        }
+        let n = self.cells.len();
+        let mut parent: Vec<usize> = (0..n).collect();
+        fn find(p: &mut [usize], mut x: usize) -> usize {
+            while p[x] != x {
+                p[x] = p[p[x]];
+                x = p[x];
+            }
+            x
+        }
+        for r in &self.relations {
+            let open: Vec<CellId> = r
+                .members()
+                .filter(|&m| self.cells[m].suppressed || self.cells[m].value != 0)
+                .collect();
+            if open.len() == 2 && open.iter().all(|&m| !self.cells[m].suppressed) {
+                let (a, b) = (find(&mut parent, open[0]), find(&mut parent, open[1]));
+                if a != b {
+                    parent[a] = b;
+                }
+            }
+        }
+        let mut top = vec![0u8; n];
+        for c in 0..n {
+            let root = find(&mut parent, c);
+            top[root] = top[root].max(self.cells[c].priority);
+        }
+        self.cost = (0..n).map(|c| top[find(&mut parent, c)]).collect();
     }
 
     /// Adds the relation `total = Σ parts`.
@@ -236,25 +312,46 @@ impl CellTable {
         // highest rank, then of the next …) is kept. Neither is better on every table: looking
         // ahead kept the 300-person demo in five sites' enrolment and weight change (each
         // relation's own best hid them), and lost the 1000-person one's.
+        //
+        // With a headline rank set, two more runs choose every complement by what hiding it
+        // costs in headline counts ([`CellTable::rank`]): each relation's cheapest cell by
+        // its own rank had, in a first month where everyone was still active and nobody in a
+        // site had reached 5 %, hidden that site's "did not reach 5 %" — its number started —
+        // and through it the whole program's enrolment. They too are kept only when they hide
+        // fewer important counts, so the result is never worse by that measure.
         let base = self.work;
-        let mut other = self.clone();
-        other.lookahead = !self.lookahead;
-        let mine = self.apply_with_ranges_once(min_cell_size);
-        let theirs = other.apply_with_ranges_once(min_cell_size);
-        let work = self.work + other.work - base;
-        let better = match (self.exhausted, other.exhausted) {
-            (true, false) => true,
-            (false, false) => other.hidden_score() < self.hidden_score(),
-            _ => false,
-        };
-        if better {
-            *self = other;
-            self.lookahead = !self.lookahead;
-            self.work = work;
-            return theirs;
+        let (lookahead, protect) = (self.lookahead, self.protect);
+        let mut modes = vec![(lookahead, false), (!lookahead, false)];
+        if self.headline_rank.is_some() {
+            modes.extend([(false, true), (true, true)]);
         }
+        let mut work = base;
+        type Ranges = Vec<Option<(u64, u64)>>;
+        let mut best: Option<(CellTable, Ranges)> = None;
+        for (la, pr) in modes {
+            let mut t = self.clone();
+            t.lookahead = la;
+            t.protect = pr;
+            let ranges = t.apply_with_ranges_once(min_cell_size);
+            work += t.work - base;
+            let better = match &best {
+                None => true,
+                Some((b, _)) => match (b.exhausted, t.exhausted) {
+                    (true, false) => true,
+                    (false, false) => t.hidden_score() < b.hidden_score(),
+                    _ => false,
+                },
+            };
+            if better {
+                best = Some((t, ranges));
+            }
+        }
+        let (t, ranges) = best.expect("at least one mode");
+        *self = t;
+        self.lookahead = lookahead;
+        self.protect = protect;
         self.work = work;
-        mine
+        ranges
     }
 
     /// Hidden cells (not differences) by rank, highest rank first: compared lexicographically,
@@ -304,6 +401,7 @@ impl CellTable {
                 }
                 continue;
             }
+            self.refresh_costs();
             match self.complement_near(u) {
                 Some(c) => self.cells[c].suppressed = true,
                 None => {
@@ -788,6 +886,7 @@ impl CellTable {
             // A determined zero tells nothing that a shown zero would not.
             let leak = (0..self.cells.len()).find(|&i| det[i] && self.cells[i].value != 0);
             let Some(u) = leak else { break };
+            self.refresh_costs();
             match self.complement_for(u, &suppressed) {
                 Some(c) => self.cells[c].suppressed = true,
                 None => {
@@ -809,6 +908,7 @@ impl CellTable {
     /// Step 2: every relation with exactly one hidden member gets a complement.
     fn single_relation_pass(&mut self) {
         loop {
+            self.refresh_costs();
             let mut changed = false;
             for r in 0..self.relations.len() {
                 let hidden = self.relations[r]
@@ -854,41 +954,12 @@ impl CellTable {
         if candidates.len() < 2 {
             return Some(first);
         }
-        let rank = |c: CellId| {
-            let cell = &self.cells[c];
-            (cell.value == 0, cell.priority, cell.value, c)
-        };
+        let rank = |c: CellId| self.rank(c);
         // (highest rank hidden, cells hidden), the candidate's own rank, the candidate.
-        type Choice = ((u8, usize), (bool, u8, u64, CellId), CellId);
+        type Choice = ((u8, usize), (bool, bool, u8, u64, CellId), CellId);
         let mut best: Option<Choice> = None;
         for c in candidates {
-            let mut hidden: Vec<bool> = self.cells.iter().map(|x| x.suppressed).collect();
-            hidden[c] = true;
-            let mut top = self.cells[c].priority;
-            let mut count = 1;
-            loop {
-                let mut changed = false;
-                for rel in &self.relations {
-                    if rel.members().filter(|&m| hidden[m]).count() != 1 {
-                        continue;
-                    }
-                    let Some(d) = rel
-                        .members()
-                        .filter(|&m| !hidden[m])
-                        .min_by_key(|&m| rank(m))
-                    else {
-                        continue;
-                    };
-                    hidden[d] = true;
-                    top = top.max(self.cells[d].priority);
-                    count += 1;
-                    changed = true;
-                }
-                if !changed || count > self.cells.len() {
-                    break;
-                }
-            }
-            let key = ((top, count), rank(c), c);
+            let key = (self.cascade(c), rank(c), c);
             if best.as_ref().is_none_or(|b| (key.0, key.1) < (b.0, b.1)) {
                 best = Some(key);
             }
@@ -896,17 +967,48 @@ impl CellTable {
         best.map(|b| b.2)
     }
 
+    /// What hiding `c` forces through relations left with one hidden member, each taking its
+    /// cheapest shown member ([`CellTable::rank`]): the highest rank hidden and the number of
+    /// cells hidden (with `c`).
+    fn cascade(&self, c: CellId) -> (u8, usize) {
+        let mut hidden: Vec<bool> = self.cells.iter().map(|x| x.suppressed).collect();
+        hidden[c] = true;
+        let mut top = self.cells[c].priority;
+        let mut count = 1;
+        loop {
+            let mut changed = false;
+            for rel in &self.relations {
+                if rel.members().filter(|&m| hidden[m]).count() != 1 {
+                    continue;
+                }
+                let Some(d) = rel
+                    .members()
+                    .filter(|&m| !hidden[m])
+                    .min_by_key(|&m| self.rank(m))
+                else {
+                    continue;
+                };
+                hidden[d] = true;
+                top = top.max(self.cells[d].priority);
+                count += 1;
+                changed = true;
+            }
+            if !changed || count > self.cells.len() {
+                break;
+            }
+        }
+        (top, count)
+    }
+
     /// The shown member of the given relations to hide next: lowest priority, then smallest
-    /// value, preferring non-zero values; ties go to the lowest id so runs are reproducible.
+    /// value, preferring non-zero values; ties go to the lowest id so runs are reproducible
+    /// ([`CellTable::rank`]: while `protect` is set, headline counts last and by cost).
     fn best_complement(&self, relations: &[usize]) -> Option<CellId> {
         relations
             .iter()
             .flat_map(|&r| self.relations[r].members())
             .filter(|&m| !self.cells[m].suppressed)
-            .min_by_key(|&m| {
-                let c = &self.cells[m];
-                (c.value == 0, c.priority, c.value, m)
-            })
+            .min_by_key(|&m| self.rank(m))
     }
 
     /// The complement for a determined cell `u` ([`CellTable::apply`]): the cell of lowest
@@ -919,7 +1021,7 @@ impl CellTable {
     /// enrolment and weight change.
     fn complement_for(&mut self, u: CellId, suppressed: &[bool]) -> Option<CellId> {
         let near = self.complement_near(u)?;
-        let bar = self.cells[near].priority;
+        let bar = self.cost(near);
         let mut seen_cells = vec![false; self.cells.len()];
         let mut seen_rel = vec![false; self.relations.len()];
         let mut frontier = vec![u];
@@ -943,8 +1045,8 @@ impl CellTable {
                     let c = &self.cells[m];
                     if c.suppressed {
                         next.push(m);
-                    } else if c.value != 0 && c.priority < bar {
-                        candidates.push((c.priority, level, c.value, m));
+                    } else if c.value != 0 && self.cost(m) < bar {
+                        candidates.push((self.cost(m), level, c.value, m));
                     }
                 }
             }
