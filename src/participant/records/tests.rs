@@ -33,6 +33,20 @@ fn weights(text: &str) -> (Vec<WeighIn>, Vec<Diagnostic>) {
     (w, diags)
 }
 
+/// `parse_weights` of `text` in window `w`: the weigh-ins, or `None` when the file is refused,
+/// with the diagnostics.
+fn read(text: &str, w: &Window) -> (Option<Vec<WeighIn>>, Vec<Diagnostic>) {
+    let mut diags = Vec::new();
+    let out = parse_weights(
+        text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        w,
+        &mut diags,
+    );
+    (out, diags)
+}
+
 fn only_warnings(diags: &[Diagnostic]) {
     assert!(
         diags.iter().all(|x| x.severity == Severity::Warning),
@@ -268,17 +282,6 @@ fn a_stretch_to_the_end_of_the_file_is_converted_only_when_it_is_the_smaller_par
 fn a_file_of_pounds_under_kg_is_never_taken_for_kilograms() {
     let day =
         |i: i64| chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap() + chrono::Duration::days(i);
-    let read = |text: &str, w: &Window| {
-        let mut diags = Vec::new();
-        let out = parse_weights(
-            text,
-            &CsvOptions::default(),
-            &ctx("weights.csv"),
-            w,
-            &mut diags,
-        );
-        (out, diags)
-    };
     // 30 weigh-ins of 75 kg falling 0.03 kg a day, written in pounds under `kg`.
     let lb = |i: i64| (75.0 - 0.03 * i as f64) / 0.453_592_37;
     let mut all_lb = String::from("date,weight,unit\n");
@@ -382,17 +385,6 @@ fn a_file_of_pounds_under_kg_is_never_taken_for_kilograms() {
 fn a_file_of_kilograms_under_lb_is_never_taken_for_pounds() {
     let day =
         |i: i64| chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap() + chrono::Duration::days(i);
-    let read = |text: &str, w: &Window| {
-        let mut diags = Vec::new();
-        let out = parse_weights(
-            text,
-            &CsvOptions::default(),
-            &ctx("weights.csv"),
-            w,
-            &mut diags,
-        );
-        (out, diags)
-    };
     let file = |unit: &str, f: f64| {
         let mut t = String::from("date,weight,unit\n");
         for i in 0..30 {
