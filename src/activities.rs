@@ -698,7 +698,7 @@ pub fn suggestions(label: &str, local: &LocalTable, n: usize) -> Vec<String> {
 }
 
 /// Levenshtein distance over characters.
-fn edit_distance(a: &str, b: &str) -> usize {
+pub(crate) fn edit_distance(a: &str, b: &str) -> usize {
     let b: Vec<char> = b.chars().collect();
     let mut prev: Vec<usize> = (0..=b.len()).collect();
     let mut cur = vec![0; b.len() + 1];

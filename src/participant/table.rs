@@ -925,6 +925,7 @@ fn read_records(
     let mut dates_in_utc = false;
     let mut usable = true;
     let mut extra = Vec::new();
+    let mut ignored: Vec<String> = Vec::new();
     for (i, name) in written.iter().enumerate() {
         let (key, unit) = header_key(name);
         let ours = |k: &str| spec.all_columns().find(|c| *c == k);
@@ -991,6 +992,12 @@ fn read_records(
                     }
                 }
             }
+            // A column of another program's export (`Fat mass (kg)`, `Comments`) is stated in
+            // one note per file: it changes no figure, and a warning for each made every run on
+            // a standard scale export end "with warnings". A header one or two letters from one
+            // of ours, or holding one of ours as a word (`sorce`, `Weight 2`), may be ours
+            // misspelt and keeps its warning.
+            None if !near_ours(&key, spec) => ignored.push(format!("`{name}`")),
             None => extra.push(
                 ctx.warning(format!("extra column `{name}` is ignored"))
                     .at(header_line, Some(i as u64 + 1))
@@ -1314,6 +1321,19 @@ fn read_records(
     }
     // Extra columns are only worth a word when the header itself is right.
     diags.extend(extra);
+    if !ignored.is_empty() {
+        ctx.note(format!(
+            "{} {} {} not read (the columns read are {})",
+            if ignored.len() == 1 {
+                "column"
+            } else {
+                "columns"
+            },
+            ignored.join(", "),
+            if ignored.len() == 1 { "is" } else { "are" },
+            column_list(spec)
+        ));
+    }
     diags.extend(row_diags);
     let rows = |n: usize| {
         if n == 1 {
@@ -1385,6 +1405,24 @@ fn shorten(s: &str, max: usize) -> String {
         Some((i, _)) => format!("{}…", &s[..i]),
         None => s.to_string(),
     }
+}
+
+/// Whether a header `key` (after [`header_key`]) that is none of ours may be one of ours
+/// misspelt: within two edits of a column name of four letters or more (one edit for shorter
+/// ones; `wieght`, `sorce`) or one edit of an alias, or holding a column name as a whole word
+/// (`weight_2`). Not an alias's word, nor two edits of one: `Fat mass (kg)` holds the alias
+/// `mass` of `weight`, and `Bone mass (kg)` is two edits from `body_mass`; both are other
+/// measurements.
+fn near_ours(key: &str, spec: &FileSpec) -> bool {
+    let words: Vec<&str> = key
+        .split(|c: char| !c.is_alphanumeric())
+        .filter(|w| !w.is_empty())
+        .collect();
+    let within = |c: &str, limit: usize| crate::activities::edit_distance(key, c) <= limit;
+    spec.all_columns().any(|c| {
+        within(c, if c.chars().count() >= 4 { 2 } else { 1 })
+            || c.split('_').all(|part| words.contains(&part))
+    }) || spec.aliases.iter().any(|(a, _)| within(a, 1))
 }
 
 fn column_list(spec: &FileSpec) -> String {
@@ -2739,14 +2777,34 @@ mod tests {
 
     #[test]
     fn extra_and_duplicate_columns() {
-        let (t, d) = read(
-            "date,weight,unit,mood\n2026-04-01,72,kg,ok\n",
+        // A header that may be one of ours misspelt (`sorce`) or holds one as a word (`Weight
+        // 2`) is warned about; other programs' columns (a scale's body-composition export) are
+        // named in one note: they change no figure, and a warning each made every run on such
+        // an export end "with warnings" (exit 1).
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let t = read_table(
+            "date,weight,unit,sorce,Fat mass (kg),Weight 2,Bone mass (kg),Comments\n2026-04-01,72,kg,x,20,71,3,ok\n",
+            &SPEC,
             &CsvOptions::default(),
+            &ctx,
+            &mut d,
         );
         assert!(t.is_some());
-        assert_eq!(d.len(), 1);
-        assert_eq!(d[0].severity, crate::diag::Severity::Warning);
+        assert_eq!(d.len(), 2, "{d:?}");
+        assert!(
+            d.iter()
+                .all(|x| x.severity == crate::diag::Severity::Warning)
+        );
         assert_eq!((d[0].line, d[0].column), (Some(1), Some(4)));
+        assert_eq!(d[0].message, "extra column `sorce` is ignored");
+        assert_eq!((d[1].line, d[1].column), (Some(1), Some(6)));
+        let notes = ctx.take_notes();
+        assert_eq!(notes.len(), 1, "{notes:?}");
+        assert_eq!(
+            notes[0].message,
+            "columns `Fat mass (kg)`, `Bone mass (kg)`, `Comments` are not read (the columns read are date, weight, unit (optional: time, source))"
+        );
         let (t, d) = read("date,weight,unit,weight\n", &CsvOptions::default());
         assert!(t.is_none());
         assert!(d[0].message.contains("appears twice"));

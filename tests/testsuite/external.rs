@@ -1056,13 +1056,14 @@ fn binary_escapes_formula_like_text_in_every_csv_and_keeps_numbers() {
         "groups: { site: '=HYPERLINK(\"http://x\",\"y\")' }",
     );
     std::fs::write(&profile, text).unwrap();
-    // An extra column named like a formula: named in the data-quality list.
+    // An extra column named like a formula (and like one of ours misspelt, so that it is
+    // warned about, not only noted): named in the data-quality list.
     let weights = t.dir.join("participants/XP-02/weights.csv");
     let text: String = std::fs::read_to_string(&weights)
         .unwrap()
         .lines()
         .enumerate()
-        .map(|(i, l)| format!("{l},{}\n", if i == 0 { "@cmd" } else { "" }))
+        .map(|(i, l)| format!("{l},{}\n", if i == 0 { "@sorce" } else { "" }))
         .collect();
     std::fs::write(&weights, text).unwrap();
 
@@ -1093,7 +1094,7 @@ fn binary_escapes_formula_like_text_in_every_csv_and_keeps_numbers() {
     assert!(has("weekly.csv", "'@kg"), "{:?}", files["weekly.csv"]);
     assert!(has("weekly.csv", "-3.2"), "{:?}", files["weekly.csv"]);
     assert!(
-        has("data-quality.csv", "'@cmd"),
+        has("data-quality.csv", "'@sorce"),
         "{:?}",
         files["data-quality.csv"]
     );
