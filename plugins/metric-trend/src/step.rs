@@ -29,7 +29,8 @@
 //! project's simulator, with no steps in the truth, they called a step for one person in
 //! twenty). A boundary is a step when |δ| ≥ [`MIN_STEP_KG`] and |δ|/SE ≥ [`MIN_Z`]. Steps are
 //! taken strongest first, one at a time, and no window reaches across a step already taken;
-//! each size is then estimated again between its neighbours (see [`find_steps`]).
+//! two steps the same way under two weeks apart, which pass neither alone, are tested as a
+//! pair (see [`find_steps`]); each size is then estimated again between its neighbours.
 
 use crate::view::WeighInStepRow;
 use chrono::NaiveDate;
@@ -109,8 +110,11 @@ impl Step {
 /// Steps are taken strongest first, one at a time, and no test window reaches across a step
 /// already taken: the boundaries next to a step (the same jump spread over two days) then have
 /// too few weigh-ins on one side to be tested, and a second step a week or two away (a scale
-/// used for ten days, then put back) is tested on the level between the two. Finally each
-/// step's size is estimated again between its neighbours. With windows that crossed another
+/// used for ten days, then put back) is tested on the level between the two. When no single
+/// step passes, two the same way under two weeks apart are looked for as a pair
+/// (`staircase`), and a step next to a taken one the same way needs no week-kept level on
+/// that side (`test_between`). Finally each step's size is estimated again between its
+/// neighbours. With windows that crossed another
 /// step, a scale put back after 8 to 14 days gave one step of the wrong size, or only one of
 /// the two: every weigh-in before the first was moved by 6-8 kg, and the change since the
 /// start showed a loss or gain that never happened.
