@@ -1041,79 +1041,9 @@ pub fn parse_weights(
     }
     diags.extend(by_previous.into_iter().map(|(_, d)| d));
 
-    // A whole file of pounds under `kg` has no earlier weigh-in to be compared with: a BMI of
-    // [`HIGH_BMI`] or more that would be a likely one in pounds says it is pounds. It is
-    // refused rather than converted: a real weight at such a BMI would then be read as less
-    // than half of it; the profile's `high-bmi-checked` says it is real.
-    let read_kg: Vec<usize> = (0..rows.len())
-        .filter(|&j| rows[j].value.unit == WeightUnit::Kg && !swapped[j])
-        .collect();
-    if read_kg.len() * 2 > rows.len() {
-        let mut v: Vec<f64> = read_kg.iter().map(|&j| kg[j]).collect();
-        let med = median(&mut v);
-        let as_lb = Mass::from_lb(med).kg();
-        if w.likely_kg(med) == Some(false)
-            && w.bmi(med).is_some_and(|b| b >= HIGH_BMI)
-            && w.likely_kg(as_lb) == Some(true)
-        {
-            let first = &rows[read_kg[0]];
-            let (h, bmi, bmi_lb) = (
-                w.height_cm.unwrap_or_default(),
-                w.bmi(med).unwrap_or_default(),
-                w.bmi(as_lb).unwrap_or_default(),
-            );
-            diags.push(
-                ctx.error(format!(
-                    "the weigh-ins read as kilograms (median {med:.1} kg, {} of {}) give a BMI of {bmi:.1} at the profile's height of {h:.0} cm; as pounds ({as_lb:.1} kg) they would give {bmi_lb:.1}: they look like pounds under `kg`, and the file is not used",
-                    read_kg.len(),
-                    rows.len()
-                ))
-                .at(first.line, wcol)
-                .field("weight")
-                .expected(format!(
-                    "weigh-ins in the unit their rows declare (as kilograms, a BMI under {HIGH_BMI} at {h:.0} cm)"
-                ))
-                .found(format!("`{}` with unit `kg`", first.value.value))
-                .hint("if the weights are pounds, correct the `unit` column or the header to `lb`; if they are kilograms and the person's BMI is that high, add `high-bmi-checked` to the `flags` of profile.yaml; check the height too"),
-            );
-            return None;
-        }
-    }
-
-    // The mirror: a whole file of kilograms under `lb` reads as 0.45 times the weight, an
-    // underweight person (the report would flag a low BMI and every figure would be wrong).
-    // Refused when the values as written would be a likely weight in kilograms, unless the
-    // profile's `low-bmi-checked` says the low BMI is real.
-    let read_lb: Vec<usize> = (0..rows.len())
-        .filter(|&j| rows[j].value.unit == WeightUnit::Lb && !swapped[j])
-        .collect();
-    if read_lb.len() * 2 > rows.len() && !w.low_bmi_checked {
-        let mut v: Vec<f64> = read_lb.iter().map(|&j| kg[j]).collect();
-        let med = median(&mut v);
-        let written = Mass::from_kg(med).lb();
-        if w.bmi(med).is_some_and(|b| b < UNDERWEIGHT_BMI) && w.likely_kg(written) == Some(true) {
-            let first = &rows[read_lb[0]];
-            let (h, bmi, bmi_kg) = (
-                w.height_cm.unwrap_or_default(),
-                w.bmi(med).unwrap_or_default(),
-                w.bmi(written).unwrap_or_default(),
-            );
-            diags.push(
-                ctx.error(format!(
-                    "the weigh-ins read as pounds (median {written:.1} lb = {med:.1} kg, {} of {}) give a BMI of {bmi:.1} at the profile's height of {h:.0} cm, underweight; as kilograms they would give {bmi_kg:.1}: they look like kilograms under `lb`, and the file is not used",
-                    read_lb.len(),
-                    rows.len()
-                ))
-                .at(first.line, wcol)
-                .field("weight")
-                .expected(format!(
-                    "weigh-ins in the unit their rows declare (as pounds, a BMI of {UNDERWEIGHT_BMI} or more at {h:.0} cm)"
-                ))
-                .found(format!("`{}` with unit `lb`", first.value.value))
-                .hint("if the weights are kilograms, correct the `unit` column or the header to `kg`; if they are pounds and the person is underweight, add `low-bmi-checked` to the `flags` of profile.yaml (and put the person before a clinician); check the height too"),
-            );
-            return None;
-        }
+    if let Some(d) = whole_file_in_the_other_unit(&rows, &kg, &swapped, w, wcol, ctx) {
+        diags.push(d);
+        return None;
     }
 
     if let Some(d) = mixed_people(&rows, &kg, wcol, ctx) {
@@ -1153,6 +1083,77 @@ pub fn parse_weights(
     }
     out.sort_by(|a, b| (a.date, &a.time).cmp(&(b.date, &b.time)));
     Some(out)
+}
+
+/// A whole file in the other unit has no earlier weigh-in to be compared with; the profile's
+/// height decides, and the file is refused rather than converted (a real weight would then be
+/// read as more than twice or less than half of itself), naming both BMIs:
+/// - pounds under `kg`: a BMI of [`HIGH_BMI`] or more as written that would be a likely one in
+///   pounds, unless the profile's `high-bmi-checked` says it is real;
+/// - kilograms under `lb`: 0.45 times the weight, an underweight person (the report would flag
+///   a low BMI and every figure would be wrong): a BMI under [`UNDERWEIGHT_BMI`] as written
+///   that would be a likely one in kilograms, unless `low-bmi-checked` says it is real.
+///
+/// `kg` holds each row's weight as read, `swapped` the rows already read in the other unit.
+fn whole_file_in_the_other_unit(
+    rows: &[Parsed<RawWeight>],
+    kg: &[f64],
+    swapped: &[bool],
+    w: &Window,
+    wcol: Option<u64>,
+    ctx: &FileCtx,
+) -> Option<Diagnostic> {
+    for unit in [WeightUnit::Kg, WeightUnit::Lb] {
+        let read: Vec<usize> = (0..rows.len())
+            .filter(|&j| rows[j].value.unit == unit && !swapped[j])
+            .collect();
+        if read.len() * 2 <= rows.len() {
+            continue;
+        }
+        let mut v: Vec<f64> = read.iter().map(|&j| kg[j]).collect();
+        let med = median(&mut v);
+        // The median as read (kg) and read in the other unit (kg).
+        let other = match unit {
+            WeightUnit::Kg => Mass::from_lb(med).kg(),
+            _ => Mass::from_kg(med).lb(),
+        };
+        let as_read_wrong = match unit {
+            WeightUnit::Kg => {
+                w.likely_kg(med) == Some(false) && w.bmi(med).is_some_and(|b| b >= HIGH_BMI)
+            }
+            _ => !w.low_bmi_checked && w.bmi(med).is_some_and(|b| b < UNDERWEIGHT_BMI),
+        };
+        if !as_read_wrong || w.likely_kg(other) != Some(true) {
+            continue;
+        }
+        let first = &rows[read[0]];
+        let (h, bmi, bmi_other) = (
+            w.height_cm.unwrap_or_default(),
+            w.bmi(med).unwrap_or_default(),
+            w.bmi(other).unwrap_or_default(),
+        );
+        let n = format!("{} of {}", read.len(), rows.len());
+        let d = match unit {
+            WeightUnit::Kg => ctx.error(format!(
+                "the weigh-ins read as kilograms (median {med:.1} kg, {n}) give a BMI of {bmi:.1} at the profile's height of {h:.0} cm; as pounds ({other:.1} kg) they would give {bmi_other:.1}: they look like pounds under `kg`, and the file is not used"
+            ))
+            .expected(format!(
+                "weigh-ins in the unit their rows declare (as kilograms, a BMI under {HIGH_BMI} at {h:.0} cm)"
+            ))
+            .found(format!("`{}` with unit `kg`", first.value.value))
+            .hint("if the weights are pounds, correct the `unit` column or the header to `lb`; if they are kilograms and the person's BMI is that high, add `high-bmi-checked` to the `flags` of profile.yaml; check the height too"),
+            _ => ctx.error(format!(
+                "the weigh-ins read as pounds (median {other:.1} lb = {med:.1} kg, {n}) give a BMI of {bmi:.1} at the profile's height of {h:.0} cm, underweight; as kilograms they would give {bmi_other:.1}: they look like kilograms under `lb`, and the file is not used"
+            ))
+            .expected(format!(
+                "weigh-ins in the unit their rows declare (as pounds, a BMI of {UNDERWEIGHT_BMI} or more at {h:.0} cm)"
+            ))
+            .found(format!("`{}` with unit `lb`", first.value.value))
+            .hint("if the weights are kilograms, correct the `unit` column or the header to `kg`; if they are pounds and the person is underweight, add `low-bmi-checked` to the `flags` of profile.yaml (and put the person before a clinician); check the height too"),
+        };
+        return Some(d.at(first.line, wcol).field("weight"));
+    }
+    None
 }
 
 /// A weights file that holds more than one person's weigh-ins: a scale several people share
