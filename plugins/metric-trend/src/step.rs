@@ -157,16 +157,29 @@ fn passes(s: &Step) -> bool {
 }
 
 /// The boundaries (index of the earlier weigh-in day) that may be tested: the two days at
-/// most [`MAX_GAP_DAYS`] apart, and not a step already taken.
+/// most [`MAX_GAP_DAYS`] apart, not a step already taken, and with a jump of at least
+/// [`MIN_STEP_KG`] between the medians of the [`MIN_PER_SIDE`] weigh-in days next to it on
+/// each side. [`test_boundary`] requires that jump of the same days whatever window it reads
+/// (a window cut closer leaves fewer than [`MIN_PER_SIDE`] days a side and fails), so this
+/// only skips boundaries that cannot pass; it keeps the pair search of [`staircase`] off the
+/// trend's hot path (it had doubled the trend module's time on records without a step).
 fn boundaries<'a>(
     days: &'a [(NaiveDate, f64)],
     taken: &'a [Step],
 ) -> impl Iterator<Item = usize> + 'a {
+    let level = |s: &[(NaiveDate, f64)]| median(s.iter().map(|d| d.1));
     days.windows(2)
         .enumerate()
         .filter(|(_, w)| (w[1].0 - w[0].0).num_days() <= MAX_GAP_DAYS)
         .filter(move |(_, w)| taken.iter().all(|t| t.after != w[1].0))
         .map(|(i, _)| i)
+        .filter(move |&i| {
+            i + 1 >= MIN_PER_SIDE
+                && i + MIN_PER_SIDE < days.len()
+                && level(&days[i + 1 - MIN_PER_SIDE..=i])
+                    .zip(level(&days[i + 1..=i + MIN_PER_SIDE]))
+                    .is_some_and(|(b, a)| (a - b).abs() >= MIN_STEP_KG)
+        })
 }
 
 /// The step test at boundary `i` between the steps `taken`. Where a step taken within
