@@ -992,22 +992,35 @@ fn week_band_crossing_a_cell_edge_when_one_known_person_leaves_does_not_pin_who_
     let started1 = releases[0].report["program"]["stats"]["enrolment"]["started"]["value"]
         .as_u64()
         .expect("month 1 prints its number started");
-    let (mut lo, mut hi) = (u64::from(min), started1 - 1);
-    if let Some((a, z)) = b1 {
-        lo = lo.max(a);
-        hi = hi.min(z);
-    }
     // Month 2's people in week 20 are month 1's less at most the one who left.
-    if let Some((a, z)) = b2 {
-        lo = lo.max(a);
-        hi = hi.min(z + 1);
-    }
+    let (lo, hi) = known_range(min, started1, b1, b2);
     assert!(lo <= 33 && 33 <= hi, "{lo}–{hi}");
     assert!(
         hi >= lo + 2,
         "week 20's n in month 1 pinned to {lo}–{hi}: {} of {started1} stopped",
         started1 - 33
     );
+}
+
+/// What a reader knows of a week's n: at least `min` and fewer than the number `started` (the
+/// rule itself), within the printed band `own`, and at most one more than the printed band
+/// `less_one` of a set of people known to be the same less at most one person.
+fn known_range(
+    min: u32,
+    started: u64,
+    own: Option<(u64, u64)>,
+    less_one: Option<(u64, u64)>,
+) -> (u64, u64) {
+    let (mut lo, mut hi) = (u64::from(min), started - 1);
+    if let Some((a, z)) = own {
+        lo = lo.max(a);
+        hi = hi.min(z);
+    }
+    if let Some((a, z)) = less_one {
+        lo = lo.max(a);
+        hi = hi.min(z + 1);
+    }
+    (lo, hi)
 }
 
 /// The same crossing within one release, with two `group_by` keys: team Ash is site Kiln Row
@@ -1072,15 +1085,7 @@ fn week_bands_of_two_keys_differing_by_one_person_do_not_pin_who_stopped() {
     let started = kiln["enrolment"]["started"]["value"]
         .as_u64()
         .expect("Kiln Row prints its number started");
-    let (mut lo, mut hi) = (u64::from(min), started - 1);
-    if let Some((a, z)) = bk {
-        lo = lo.max(a);
-        hi = hi.min(z);
-    }
-    if let Some((a, z)) = ba {
-        lo = lo.max(a);
-        hi = hi.min(z + 1);
-    }
+    let (lo, hi) = known_range(min, started, bk, ba);
     assert!(lo <= 33 && 33 <= hi, "{lo}–{hi}");
     assert!(
         hi >= lo + 2,
