@@ -19,7 +19,7 @@ use cohortpress_metric_api::{
     Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
 };
 use cohortpress_metric_energy::EnergyModule;
-use cohortpress_metric_energy::view::EnergyView;
+use cohortpress_metric_energy::view::{EnergyView, OptionKind};
 use cohortpress_metric_trend::TrendModule;
 use cohortpress_metric_trend::view::{PeriodKind, RegainVerdict, Status, TrendView};
 use std::collections::BTreeMap;
@@ -255,6 +255,9 @@ pub struct Outcome {
     pub cause: Option<(&'static str, String)>,
     /// Forecast from mid-program to the end: (truth, lower, upper).
     pub forecast: Option<(f64, f64, f64)>,
+    /// Options at the end that cut intake and are called safe: whether each leaves the true
+    /// intake (the mean of the last 28 days, less the cut) at or above the module's floor.
+    pub cuts_called_safe: Vec<bool>,
 }
 
 /// Simulates and scores person `index` of the cohort with seed `seed` over `days` days.
@@ -373,6 +376,29 @@ pub fn run_person_in(
         })
         .flatten();
 
+    // Options that cut intake and are called safe, against the true intake. The floors are the
+    // `energy` module's defaults (`intake_floor_female` 1,200, `intake_floor_male` 1,500 kcal/d),
+    // which the harness does not change.
+    let floor = if p.male { 1500.0 } else { 1200.0 };
+    let cuts_called_safe = i
+        .value
+        .map(|implied| {
+            energy
+                .options
+                .iter()
+                .filter(|o| o.feasible)
+                .filter_map(|o| {
+                    let cut = match o.kind {
+                        OptionKind::Intake => -o.change_per_day?,
+                        OptionKind::Combined => implied - o.resulting_intake_kcal_per_day?,
+                        OptionKind::Walking => return None,
+                    };
+                    (cut > 0.0).then_some(intake_truth - cut >= floor)
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+
     // Forecast from mid-program.
     let mid = days / 2 - 1;
     let (_, energy_mid) = run_modules_with(&data, days, mid, &settings);
@@ -396,6 +422,7 @@ pub fn run_person_in(
         regain,
         cause,
         forecast,
+        cuts_called_safe,
     }
 }
 
@@ -537,6 +564,8 @@ pub struct Summary {
     pub trend_mae: Figure,
     /// Median error of the trend weight, kg.
     pub trend_bias: Figure,
+    /// Share of intake cuts called safe that would take the true intake below the floor.
+    pub cuts_below_floor: Figure,
 }
 
 impl Summary {
@@ -610,6 +639,7 @@ impl Summary {
                 .filter_map(|x| x.trend_weight)
                 .map(|(t, e)| e - t)
                 .collect()),
+            cuts_below_floor: prop(o().flat_map(|x| x.cuts_called_safe.iter().map(|ok| !ok))),
         }
     }
 }
@@ -754,6 +784,13 @@ pub fn rows() -> Vec<Row> {
             label: "total expenditure: 95 % interval contains the truth",
             goal: "—",
             pick: |s| s.tdee_coverage,
+            met: None,
+            percent: true,
+        },
+        Row {
+            label: "intake cuts called safe that take the true intake below the floor",
+            goal: "—",
+            pick: |s| s.cuts_below_floor,
             met: None,
             percent: true,
         },

@@ -177,7 +177,10 @@ fn stress(args: &Args) -> String {
     let _ = writeln!(s);
     let summaries: Vec<Summary> = cohorts.iter().map(Summary::of).collect();
     for r in rows().into_iter().filter(|r| {
-        r.met.is_some() || r.label.contains("half-width") || r.label.contains("expenditure: 95")
+        r.met.is_some()
+            || r.label.contains("half-width")
+            || r.label.contains("expenditure: 95")
+            || r.label.contains("below the floor")
     }) {
         let _ = write!(s, "| {} | {} |", r.label, r.goal);
         for sm in &summaries {

@@ -6,7 +6,7 @@
 //! The floors sit a little below what these seeds measure (VALIDATION.md has the full table),
 //! so ordinary refactoring passes and a real regression does not. Goals not yet met (plateau
 //! onset, under-reporting, expenditure) are guarded at their
-//! current level with a margin (under-reporting 5.9 / 6.0 points → 7; expenditure 180 / 167
+//! current level with a margin (under-reporting 5.9 / 6.1 points → 7; expenditure 180 / 170
 //! kcal/d → 200; trend bias 0.1 / 0.0 kg → 0.25).
 
 use cohortpress_validation::{Figure, Summary, run_cohort};
@@ -19,7 +19,7 @@ fn check(seed: u64) {
             .unwrap_or_else(|| panic!("seed {seed}, {what}: nobody was scored (n = {})", f.n))
     };
     let report = format!("seed {seed}\n{s:#?}");
-    let floors: [(&str, f64, bool, Figure); 13] = [
+    let floors: [(&str, f64, bool, Figure); 14] = [
         (
             "implied-intake interval coverage",
             0.90,
@@ -49,6 +49,16 @@ fn check(seed: u64) {
         ("expenditure interval coverage", 0.90, true, s.tdee_coverage),
         ("trend weight MAE, kg", 0.4, false, s.trend_mae),
         ("trend weight bias, kg", 0.25, false, s.trend_bias),
+        // Intake cuts are checked against the low end of the implied intake's 95 % interval, so
+        // about 2.5 % at most should take the true intake below the floor; measured 1.0 %
+        // (seed 20261202, n = 198) and 0.5 % (seed 7, n = 206); checked against the point
+        // estimate instead, 7.1 % (n = 241) and 9.3 % (n = 247).
+        (
+            "intake cuts called safe below the floor",
+            0.035,
+            false,
+            s.cuts_below_floor,
+        ),
     ];
     for (what, floor, at_least, f) in floors {
         let x = v(f, what);
