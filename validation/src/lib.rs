@@ -258,6 +258,10 @@ pub struct Outcome {
     /// Options at the end that cut intake and are called safe: whether each leaves the true
     /// intake (the mean of the last 28 days, less the cut) at or above the module's floor.
     pub cuts_called_safe: Vec<bool>,
+    /// Whether anything reported at the end lies outside what a body can do: a steady state or
+    /// forecast (value or band edge) below BMI 16, or a negative bound of the implied intake,
+    /// total expenditure, steady state or forecast.
+    pub impossible: bool,
 }
 
 /// Simulates and scores person `index` of the cohort with seed `seed` over `days` days.
@@ -399,6 +403,22 @@ pub fn run_person_in(
         })
         .unwrap_or_default();
 
+    // Figures outside what a body can do.
+    let min_kg = 16.0 * (p.height_cm / 100.0).powi(2);
+    let ss = &energy.steady_state_weight_kg;
+    let weights = [ss.value, ss.lower, ss.upper].into_iter().flatten().chain(
+        energy
+            .forecast_weight
+            .points
+            .iter()
+            .flat_map(|pt| [Some(pt.value), pt.lower, pt.upper])
+            .flatten(),
+    );
+    let bounds = [i.lower, energy.tdee_kcal_per_day.lower, ss.lower]
+        .into_iter()
+        .flatten();
+    let impossible = weights.clone().any(|w| w < min_kg) || bounds.chain(weights).any(|x| x < 0.0);
+
     // Forecast from mid-program.
     let mid = days / 2 - 1;
     let (_, energy_mid) = run_modules_with(&data, days, mid, &settings);
@@ -423,6 +443,7 @@ pub fn run_person_in(
         cause,
         forecast,
         cuts_called_safe,
+        impossible,
     }
 }
 
@@ -566,6 +587,8 @@ pub struct Summary {
     pub trend_bias: Figure,
     /// Share of intake cuts called safe that would take the true intake below the floor.
     pub cuts_below_floor: Figure,
+    /// Share of people with a figure outside what a body can do ([`Outcome::impossible`]).
+    pub impossible: Figure,
 }
 
 impl Summary {
@@ -640,6 +663,7 @@ impl Summary {
                 .map(|(t, e)| e - t)
                 .collect()),
             cuts_below_floor: prop(o().flat_map(|x| x.cuts_called_safe.iter().map(|ok| !ok))),
+            impossible: prop(o().map(|x| x.impossible)),
         }
     }
 }
@@ -791,6 +815,13 @@ pub fn rows() -> Vec<Row> {
             label: "intake cuts called safe that take the true intake below the floor",
             goal: "—",
             pick: |s| s.cuts_below_floor,
+            met: None,
+            percent: true,
+        },
+        Row {
+            label: "a steady state or forecast below BMI 16, or a negative bound",
+            goal: "—",
+            pick: |s| s.impossible,
             met: None,
             percent: true,
         },
