@@ -73,6 +73,10 @@ pub struct PatientData {
     pub sex: Option<String>,
     /// Birth date.
     pub birth_date: Option<NaiveDate>,
+    /// What the Patient gave for `gender` and `birthDate` when it is not a usable sex or a full
+    /// date (`unknown`; a year or year and month, which FHIR allows): said in the profile's
+    /// comment, so the person filling it in knows what the record holds.
+    pub unusable: (Option<String>, Option<String>),
     /// Weigh-ins: (date, time HH:MM, value, `kg` | `lb`, source from `Observation.method`).
     #[allow(
         clippy::type_complexity,
@@ -197,6 +201,19 @@ impl Imported {
                 p.birth_date = r["birthDate"]
                     .as_str()
                     .and_then(|d| NaiveDate::parse_from_str(d, "%Y-%m-%d").ok());
+                // Quoted back in a comment only: cut to a short plain token.
+                let plain = |v: &Value| {
+                    v.as_str().map(|t| {
+                        t.chars()
+                            .filter(|c| c.is_ascii_alphanumeric() || *c == '-')
+                            .take(20)
+                            .collect::<String>()
+                    })
+                };
+                p.unusable = (
+                    plain(&r["gender"]).filter(|_| p.sex.is_none()),
+                    plain(&r["birthDate"]).filter(|_| p.birth_date.is_none()),
+                );
             }
             Some("Observation") => self.observation(r, urls, origin),
             _ => {}
@@ -478,15 +495,27 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
     let mut profile = format!(
         "# Imported from FHIR. `enrolled` is the day of the first observation: check it.\nid: {id}\n"
     );
+    let gave = |v: &Option<String>| match v {
+        Some(v) if !v.is_empty() => format!("the FHIR Patient gives `{v}`"),
+        _ => "not in the FHIR Patient".to_string(),
+    };
     match &p.sex {
         Some(s) => writeln!(profile, "sex: {s}").expect("string"),
-        None => profile.push_str("# sex: female | male   (not in the FHIR Patient: fill it in)\n"),
+        None => writeln!(
+            profile,
+            "# sex: female | male   ({}: fill it in)",
+            gave(&p.unusable.0)
+        )
+        .expect("string"),
     }
     match p.birth_date {
         Some(b) => writeln!(profile, "birth_date: {b}").expect("string"),
-        None => {
-            profile.push_str("# birth_date: YYYY-MM-DD   (not in the FHIR Patient: fill it in)\n")
-        }
+        None => writeln!(
+            profile,
+            "# birth_date: YYYY-MM-DD   ({}: fill in the whole date, or give `age:` instead)",
+            gave(&p.unusable.1)
+        )
+        .expect("string"),
     }
     // The latest height.
     match p.heights.iter().max_by_key(|h| h.0) {
@@ -752,6 +781,63 @@ mod tests {
             get("labs.csv"),
             "date,test,value,unit\n2027-03-02,diastolic_bp,82,mmHg\n2027-03-02,fasting_glucose,101,mg/dL\n2027-03-02,hba1c,5.9,%\n2027-03-02,systolic_bp,128,mmHg\n2027-03-02,waist,36.5,in\n"
         );
+    }
+
+    /// FHIR allows a birth date of a year or a year and month, and a gender of `other` or
+    /// `unknown`: the profile leaves them to be filled in (nothing is guessed) and says what the
+    /// record gave; a value that is not a plain token is not quoted.
+    #[test]
+    fn a_partial_birth_date_and_an_unknown_gender_are_named_not_guessed() {
+        let patient = |id: &str, gender: &str, born: &str| json!({"resourceType": "Patient", "id": id, "gender": gender, "birthDate": born});
+        let weight = |pid: &str| {
+            json!({"resourceType": "Observation", "id": format!("w-{pid}"), "status": "final",
+                   "code": {"coding": [{"system": LOINC, "code": BODY_WEIGHT}]},
+                   "subject": {"reference": format!("Patient/{pid}")},
+                   "effectiveDateTime": "2027-03-01",
+                   "valueQuantity": {"value": 91.0, "code": "kg"}})
+        };
+        let mut imp = Imported::default();
+        for r in [
+            patient("p-1", "unknown", "1980"),
+            patient("p-2", "female", "1975-06"),
+            patient("p-3", "<b>x</b>", "1990-02-30"),
+            weight("p-1"),
+            weight("p-2"),
+            weight("p-3"),
+        ] {
+            imp.add(&r, &BTreeMap::new(), "p.ndjson");
+        }
+        let profile = |pid: &str| {
+            participant_files(pid, &imp.patients[pid])
+                .into_iter()
+                .find(|f| f.0 == "profile.yaml")
+                .unwrap()
+                .1
+        };
+        let p1 = profile("p-1");
+        assert!(
+            p1.contains("# sex: female | male   (the FHIR Patient gives `unknown`: fill it in)\n"),
+            "{p1}"
+        );
+        assert!(
+            p1.contains(
+                "# birth_date: YYYY-MM-DD   (the FHIR Patient gives `1980`: fill in the whole \
+                 date, or give `age:` instead)\n"
+            ),
+            "{p1}"
+        );
+        let p2 = profile("p-2");
+        assert!(
+            p2.contains(
+                "sex: female\n# birth_date: YYYY-MM-DD   (the FHIR Patient gives `1975-06`"
+            ),
+            "{p2}"
+        );
+        // An impossible date is not a birth date either; markup is not copied.
+        let p3 = profile("p-3");
+        assert!(p3.contains("gives `bxb`: fill it in"), "{p3}");
+        assert!(p3.contains("gives `1990-02-30`"), "{p3}");
+        assert!(!p3.contains('<'), "{p3}");
     }
 
     #[test]
