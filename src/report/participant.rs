@@ -10,7 +10,7 @@ use crate::modules::{BuiltinViews, ModuleResults, views::BUILTIN};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
 };
-use chrono::NaiveDate;
+use chrono::{Datelike as _, NaiveDate};
 use cohortpress_metric_adherence::view::AdherenceView as AdherenceResults;
 use cohortpress_metric_api::view::{Code, Interval};
 use cohortpress_metric_api::{FlagSeverity, LabTest, ParticipantData, Profile, UnitSystem};
@@ -756,9 +756,11 @@ fn weight_chart(
             points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
             style: LineStyle::Solid,
         });
+        // One row per Monday-to-Sunday week: the trend on the week's last day in the series,
+        // the Sunday or the last weigh-in's day, as `weight_trend_weekly` in weekly.csv.
         let n = s.points.len();
         for (i, p) in s.points.iter().enumerate() {
-            if (n - 1 - i) % 7 == 0 {
+            if i + 1 == n || p.date.weekday() == chrono::Weekday::Sun {
                 table.rows.push(vec![
                     fmt::date(p.date),
                     fmt::fixed(conv(p.value), 1),

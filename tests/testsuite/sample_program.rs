@@ -246,6 +246,25 @@ fn sample_program_runs_end_to_end() {
         compared += 1;
     }
     assert!(compared >= 40, "{compared}");
+    // The participant report's "Data behind the chart" has the same weeks as weekly.csv: the
+    // trend on each Monday-to-Sunday week's last day (they were counted back from the last
+    // weigh-in, so the two tables disagreed unless it fell on a Sunday).
+    let rows_of = |html: &str| -> Vec<String> {
+        let table = &html[html.find(">Week ending</th>").expect("the weekly table")..];
+        let table = &table[..table.find("</table>").unwrap()];
+        table
+            .split("<tr><td>")
+            .skip(1)
+            .map(|r| r.split("</td><td>").nth(1).unwrap().to_string())
+            .collect()
+    };
+    let from_csv: Vec<String> = weekly
+        .iter()
+        .filter(|w| w["participant_id"] == "SG-001" && w["series"] == "weight_trend_weekly")
+        .map(|w| format!("{:.1}", w["value"].parse::<f64>().unwrap()))
+        .collect();
+    assert!(from_csv.len() >= 20, "{from_csv:?}");
+    assert_eq!(rows_of(&sg001), from_csv);
     let value = package["resources"][1]["schema"]["fields"]
         .as_array()
         .unwrap()
