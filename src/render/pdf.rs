@@ -397,6 +397,10 @@ impl Layout {
             _ => "H3",
         });
         for l in &lines {
+            // A heading taller than a page (a name of thousands of letters, an override
+            // template's long title) goes on over the page break; it was drawn on down over
+            // the running footer and off the page.
+            self.ensure(lh);
             let baseline = self.y - size * ASCENT;
             self.text(Face::Bold, size, ink(), MARGIN_X, baseline, l);
             self.y -= lh;
@@ -1807,6 +1811,49 @@ pub(crate) mod tests {
         assert!(texts[0].contains("Filler line 27"));
         assert!(!texts[0].contains("Weight over time"));
         assert!(texts[1].contains("Weight over time") && texts[1].contains("weigh-ins"));
+    }
+
+    /// A level-1 heading of 3,000 letters (a participant's name) filled page 1 and was drawn on
+    /// over the running footer and off the page: its lines were never given a page break.
+    #[test]
+    fn a_heading_taller_than_a_page_goes_on_over_the_page_break() {
+        let name = "W".repeat(3000);
+        let mut layout = Layout::new();
+        layout.block(
+            &Block::Heading {
+                level: 1,
+                text: name.clone(),
+            },
+            None,
+        );
+        layout.block(&Block::Paragraph("After the heading.".into()), None);
+        assert!(layout.pages.len() >= 3, "{} pages", layout.pages.len());
+        let mut shown = String::new();
+        for (n, page) in layout.pages.iter().enumerate() {
+            for op in page {
+                if let Op::SetTextMatrix {
+                    matrix: TextMatrix::Translate(_, Pt(baseline)),
+                } = op
+                {
+                    // The lowest baseline of a 17 pt line that fits: its descent stays above
+                    // the content's bottom, clear of the footer's rule at 15 mm.
+                    assert!(
+                        *baseline >= CONTENT_BOTTOM - 0.01,
+                        "page {}: text at {baseline} below the content's bottom {CONTENT_BOTTOM}",
+                        n + 1
+                    );
+                }
+                if let Op::ShowText { items } = op {
+                    for i in items {
+                        if let TextItem::Text(t) = i {
+                            shown.push_str(t);
+                        }
+                    }
+                }
+            }
+        }
+        // Nothing is lost over the breaks.
+        assert_eq!(shown, format!("{name}After the heading."));
     }
 
     #[test]
