@@ -197,6 +197,30 @@ fn read_profile(text: &str, ctx: &FileCtx, diags: &mut Vec<Diagnostic>) -> Optio
     })
 }
 
+/// The most characters of a name the reports show (common practice: generous for names of many
+/// parts; a longer value is other text pasted into `name:`, and it pushed the report's heading
+/// over several pages).
+pub const NAME_MAX_CHARS: usize = 100;
+
+/// `name` as the reports show it, and whether it was cut: at most [`NAME_MAX_CHARS`]
+/// characters (with the accents that belong to the last one) and then `…`.
+fn capped_name(name: &str) -> (String, bool) {
+    use unicode_normalization::char::is_combining_mark;
+    let mut chars = name.char_indices();
+    let Some((cut, _)) = chars.nth(NAME_MAX_CHARS) else {
+        return (name.to_string(), false);
+    };
+    // A combining accent stays with its letter.
+    let end = name[cut..]
+        .char_indices()
+        .find(|&(_, c)| !is_combining_mark(c))
+        .map_or(name.len(), |(i, _)| cut + i);
+    if end == name.len() {
+        return (name.to_string(), false);
+    }
+    (format!("{}…", name[..end].trim_end()), true)
+}
+
 /// Whole years from `birth` to `on`.
 pub fn whole_years(birth: NaiveDate, on: NaiveDate) -> i32 {
     let mut y = on.year() - birth.year();
@@ -450,7 +474,23 @@ pub fn parse_profile(
         .name
         .as_deref()
         .map(|n| invisible_checked(n, "the name", "name", &at, ctx, diags))
-        .filter(|n| !n.trim().is_empty());
+        .filter(|n| !n.trim().is_empty())
+        .map(|n| {
+            let (shown, cut) = capped_name(n.trim());
+            if cut {
+                let count = n.trim().chars().count();
+                diags.push(at(
+                    "name",
+                    ctx.warning(format!(
+                        "the name is {count} characters long; the reports show its first {NAME_MAX_CHARS} and `…`"
+                    ))
+                    .expected(format!("a name of at most {NAME_MAX_CHARS} characters"))
+                    .found(format!("{count} characters"))
+                    .hint("check the value: a name this long is most likely other text pasted into `name:`"),
+                ));
+            }
+            shown
+        });
     Some(Profile {
         id: def.id?,
         name,
@@ -733,6 +773,44 @@ flags: [glucose-lowering-medication]
         assert_eq!(d.len(), 2, "{d:?}");
         assert!(d[0].message.contains("not a valid date"), "{}", d[0]);
         assert!(d[1].message.contains("both"), "{}", d[1]);
+    }
+
+    /// A name of 3,000 letters filled page 1 of the PDF and ran over its footer. The reports
+    /// show its first 100 characters and `…`, with a warning at the name.
+    #[test]
+    fn a_very_long_name_is_cut_with_a_warning() {
+        let long = "W".repeat(3000);
+        let (p, d) = parse(&GOOD.replace("Dana Example", &long));
+        assert_eq!(
+            p.unwrap().name.as_deref(),
+            Some(format!("{}…", "W".repeat(100)).as_str())
+        );
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, Severity::Warning);
+        assert_eq!(
+            d[0].message,
+            "the name is 3000 characters long; the reports show its first 100 and `…`"
+        );
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(7)));
+        assert_eq!(d[0].found.as_deref(), Some("3000 characters"));
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("a name of at most 100 characters")
+        );
+        // 100 characters is shown whole; an accent after the 100th stays with its letter.
+        let hundred = "Ab".repeat(50);
+        let (p, d) = parse(&GOOD.replace("Dana Example", &hundred));
+        assert_eq!(p.unwrap().name.as_deref(), Some(hundred.as_str()));
+        assert!(d.is_empty(), "{d:?}");
+        let accented = format!("{}e\\u0301", "a".repeat(99));
+        let (p, d) = parse(&GOOD.replace("Dana Example", &format!("\"{accented}\"")));
+        assert_eq!(p.unwrap().name.unwrap().chars().count(), 101, "{d:?}");
+        assert!(d.is_empty(), "{d:?}");
+        let (p, _) = parse(&GOOD.replace("Dana Example", &format!("\"{accented} Z\"")));
+        assert_eq!(
+            p.unwrap().name.unwrap(),
+            format!("{}e\u{301}…", "a".repeat(99))
+        );
     }
 
     #[test]
