@@ -11,7 +11,7 @@ use handlebars::{
     Context, Handlebars, Helper, HelperResult, JsonRender, Output, RenderContext, RenderErrorReason,
 };
 use serde::Serialize;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 /// The built-in templates: (file name, contents).
 pub const BUILTIN: &[(&str, &str)] = &[
@@ -189,32 +189,57 @@ impl TemplateSet {
     }
 }
 
-/// Reads a user's template folder with our own walk: symbolic links and anything that is not a
-/// plain `.hbs` file inside the folder are refused (handlebars' own directory loader follows
-/// links, which could pull any readable file into a report).
+/// Reads a user's template folder: its `.hbs` files and those of its `partials/` folder, the
+/// layout `templates dump` writes and the only one a template can use; nothing deeper is read
+/// (a `report.templates` of `/` or `..` walked and compiled every `.hbs` file of the whole
+/// tree). A symbolic link among them (or as `partials`) is refused, and so is anything that is
+/// not a plain file (handlebars' own directory loader follows links, which could pull any
+/// readable file into a report).
 fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, TemplateError> {
     let mut out = Vec::new();
-    for entry in walkdir::WalkDir::new(dir)
+    read_override_level(dir, "", &mut out)?;
+    let partials = dir.join("partials");
+    match std::fs::symlink_metadata(&partials) {
+        Ok(m) if m.file_type().is_symlink() => {
+            return Err(TemplateError::File(
+                partials.display().to_string(),
+                "symbolic links are not allowed in a template folder".into(),
+            ));
+        }
+        Ok(m) if m.is_dir() => read_override_level(&partials, "partials/", &mut out)?,
+        _ => {}
+    }
+    Ok(out)
+}
+
+/// The `.hbs` files directly in `folder`, named `prefix` + file name.
+fn read_override_level(
+    folder: &Path,
+    prefix: &str,
+    out: &mut Vec<(String, String, String)>,
+) -> Result<(), TemplateError> {
+    for entry in walkdir::WalkDir::new(folder)
+        .min_depth(1)
+        .max_depth(1)
         .follow_links(false)
         .sort_by_file_name()
     {
         let entry =
-            entry.map_err(|e| TemplateError::File(dir.display().to_string(), e.to_string()))?;
+            entry.map_err(|e| TemplateError::File(folder.display().to_string(), e.to_string()))?;
         let path = entry.path();
+        if path.extension().is_none_or(|e| e != "hbs") {
+            continue;
+        }
         if entry.path_is_symlink() {
             return Err(TemplateError::File(
                 path.display().to_string(),
                 "symbolic links are not allowed in a template folder".into(),
             ));
         }
-        if !entry.file_type().is_file() || path.extension().is_none_or(|e| e != "hbs") {
+        if !entry.file_type().is_file() {
             continue;
         }
-        let rel: PathBuf = path
-            .strip_prefix(dir)
-            .expect("walk stays inside")
-            .to_path_buf();
-        let name = rel.to_string_lossy().replace('\\', "/");
+        let name = format!("{prefix}{}", entry.file_name().to_string_lossy());
         // Opened without following links, regular files only (a link swapped in after the
         // walk is still refused).
         let text = crate::limits::read_input(path)
@@ -231,7 +256,7 @@ fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, Templa
         }
         out.push((name, text, path.display().to_string()));
     }
-    Ok(out)
+    Ok(())
 }
 
 /// Elements that run code, embed another document or send the page somewhere: never part of a

@@ -981,6 +981,48 @@ fn a_symlink_in_the_template_folder_is_refused() {
     assert!(err.contains("participant.html.hbs"), "{err}");
 }
 
+/// `report.templates: /` (or `..`) walked the whole tree under it and compiled every `.hbs`
+/// file found there. Only the folder's own `.hbs` files and those of its `partials/` folder
+/// (the layout `templates dump` writes) are read: files and links deeper down are not.
+#[cfg(unix)]
+#[test]
+fn only_the_template_folder_and_its_partials_are_read() {
+    let dir = tempfile::tempdir().unwrap();
+    let t = dir.path();
+    std::fs::create_dir_all(t.join("partials/old")).unwrap();
+    std::fs::create_dir_all(t.join("program/participants/P-1")).unwrap();
+    std::fs::write(t.join("partials/kv.hbs"), "<p>own kv partial</p>").unwrap();
+    // Each of these failed the load (a refused element, a link) when the whole tree was read.
+    std::fs::write(t.join("partials/old/kv.hbs"), "<script>old</script>").unwrap();
+    std::fs::write(t.join("program/notes.hbs"), "<script>x</script>").unwrap();
+    std::os::unix::fs::symlink("/etc/hostname", t.join("program/participants/P-1/a.hbs")).unwrap();
+    let set = TemplateSet::with_overrides(Some(t)).unwrap();
+    let read: Vec<&str> = set
+        .sources
+        .iter()
+        .filter(|(_, src)| src != "built-in")
+        .map(|(name, _)| name.as_str())
+        .collect();
+    assert_eq!(read, ["partials/kv.hbs"]);
+    // A link where a template is read is still refused, at the top and in partials/.
+    std::os::unix::fs::symlink("/etc/hostname", t.join("partials/table.hbs")).unwrap();
+    let err = TemplateSet::with_overrides(Some(t))
+        .err()
+        .expect("link refused")
+        .to_string();
+    assert!(err.contains("symbolic links are not allowed"), "{err}");
+    assert!(err.contains("partials/table.hbs"), "{err}");
+    std::fs::remove_file(t.join("partials/table.hbs")).unwrap();
+    let moved = dir.path().join("program/p");
+    std::fs::rename(t.join("partials"), &moved).unwrap();
+    std::os::unix::fs::symlink(&moved, t.join("partials")).unwrap();
+    let err = TemplateSet::with_overrides(Some(t))
+        .err()
+        .expect("link refused")
+        .to_string();
+    assert!(err.contains("symbolic links are not allowed"), "{err}");
+}
+
 #[test]
 fn templates_dump_writes_every_built_in_and_never_overwrites() {
     let prog = ProgramTest::fixture("report-small");
