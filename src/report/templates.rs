@@ -11,7 +11,7 @@ use handlebars::{
     Context, Handlebars, Helper, HelperResult, JsonRender, Output, RenderContext, RenderErrorReason,
 };
 use serde::Serialize;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// The built-in templates: (file name, contents).
 pub const BUILTIN: &[(&str, &str)] = &[
@@ -189,15 +189,15 @@ impl TemplateSet {
     }
 }
 
-/// Reads a user's template folder: its `.hbs` files and those of its `partials/` folder, the
-/// layout `templates dump` writes and the only one a template can use; nothing deeper is read
-/// (a `report.templates` of `/` or `..` walked and compiled every `.hbs` file of the whole
-/// tree). A symbolic link among them (or as `partials`) is refused, and so is anything that is
-/// not a plain file (handlebars' own directory loader follows links, which could pull any
-/// readable file into a report).
-fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, TemplateError> {
+/// The files of a user's template folder that are read, as (template name, path): its `.hbs`
+/// files and those of its `partials/` folder, the layout `templates dump` writes and the only
+/// one a template can use; nothing deeper (a `report.templates` of `/` or `..` walked and
+/// compiled every `.hbs` file of the whole tree). A symbolic link among them (or as
+/// `partials`) is refused; anything that is not a plain file is left out. The run's
+/// fingerprint hashes the same files ([`crate::run::plan::run_key`]).
+pub fn override_files(dir: &Path) -> Result<Vec<(String, PathBuf)>, TemplateError> {
     let mut out = Vec::new();
-    read_override_level(dir, "", &mut out)?;
+    override_level(dir, "", &mut out)?;
     let partials = dir.join("partials");
     match std::fs::symlink_metadata(&partials) {
         Ok(m) if m.file_type().is_symlink() => {
@@ -206,17 +206,17 @@ fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, Templa
                 "symbolic links are not allowed in a template folder".into(),
             ));
         }
-        Ok(m) if m.is_dir() => read_override_level(&partials, "partials/", &mut out)?,
+        Ok(m) if m.is_dir() => override_level(&partials, "partials/", &mut out)?,
         _ => {}
     }
     Ok(out)
 }
 
 /// The `.hbs` files directly in `folder`, named `prefix` + file name.
-fn read_override_level(
+fn override_level(
     folder: &Path,
     prefix: &str,
-    out: &mut Vec<(String, String, String)>,
+    out: &mut Vec<(String, PathBuf)>,
 ) -> Result<(), TemplateError> {
     for entry in walkdir::WalkDir::new(folder)
         .min_depth(1)
@@ -236,13 +236,22 @@ fn read_override_level(
                 "symbolic links are not allowed in a template folder".into(),
             ));
         }
-        if !entry.file_type().is_file() {
-            continue;
+        if entry.file_type().is_file() {
+            let name = format!("{prefix}{}", entry.file_name().to_string_lossy());
+            out.push((name, path.to_path_buf()));
         }
-        let name = format!("{prefix}{}", entry.file_name().to_string_lossy());
+    }
+    Ok(())
+}
+
+/// Reads a user's template folder ([`override_files`]) with our own walk (handlebars' own
+/// directory loader follows links, which could pull any readable file into a report).
+fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, TemplateError> {
+    let mut out = Vec::new();
+    for (name, path) in override_files(dir)? {
         // Opened without following links, regular files only (a link swapped in after the
         // walk is still refused).
-        let text = crate::limits::read_input(path)
+        let text = crate::limits::read_input(&path)
             .map_err(|e| e.to_string())
             .and_then(|b| String::from_utf8(b).map_err(|_| "the file is not UTF-8 text".into()))
             .map_err(|e| TemplateError::File(path.display().to_string(), e))?;
@@ -256,7 +265,7 @@ fn read_override_level(
         }
         out.push((name, text, path.display().to_string()));
     }
-    Ok(())
+    Ok(out)
 }
 
 /// Elements that run code, embed another document or send the page somewhere: never part of a

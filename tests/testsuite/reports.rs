@@ -907,6 +907,35 @@ fn a_large_file_beside_the_templates_is_not_read() {
     assert!(html.contains("OVERRIDE-MARKER-7732"));
 }
 
+/// The run's fingerprint hashed every `.hbs` file under the template folder, however deep
+/// (`report.templates: /` read the whole disk's): one over the input limit in a folder the
+/// loader does not read stopped the run with exit 3. It hashes what the loader reads.
+#[test]
+fn a_template_file_below_the_template_folders_is_not_read() {
+    let prog = ProgramTest::fixture("report-small");
+    std::fs::create_dir_all(prog.dir.join("templates/archive/2025")).unwrap();
+    std::fs::write(
+        prog.dir.join("templates/participant.html.hbs"),
+        BUILTIN
+            .iter()
+            .find(|(n, _)| *n == "participant.html.hbs")
+            .unwrap()
+            .1
+            .replace("<main>", "<main><p>OVERRIDE-MARKER-7733</p>"),
+    )
+    .unwrap();
+    // Sparse: 70 MiB long, nothing written.
+    std::fs::File::create(prog.dir.join("templates/archive/2025/participant.html.hbs"))
+        .unwrap()
+        .set_len(70 * 1024 * 1024)
+        .unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("reports/participants/SG-003.html")).unwrap();
+    assert!(html.contains("OVERRIDE-MARKER-7733"));
+}
+
 #[test]
 fn overriding_one_template_leaves_the_others_built_in() {
     let prog = ProgramTest::fixture("report-small");
