@@ -72,13 +72,13 @@ impl<'a> Fields<'a> {
                 problems: Vec::new(),
                 failed: Vec::new(),
             }),
-            // Not a mapping: what a struct reading says about it (`invalid type: …`).
-            Ok(_) => Err(
-                match serde_yaml::from_str::<std::collections::BTreeMap<String, Value>>(text) {
-                    Err(e) => serde_error(&e, text, file),
-                    Ok(_) => Diagnostic::error(file, "the file is not a mapping of keys"),
-                },
-            ),
+            Ok(other) => Err(Diagnostic::error(file, "the file is not a mapping of keys")
+                .expected("`key: value` lines")
+                .found(match other {
+                    serde_yaml::Value::Null => "an empty document",
+                    serde_yaml::Value::Sequence(_) => "a list",
+                    _ => "a single value",
+                })),
             Err(e) => Err(serde_error(&e, text, file)),
         }
     }

@@ -157,15 +157,14 @@ impl From<ProfileDef> for ProfileRead {
 /// keys that were read still run. `None` when the file cannot be read key by key at all
 /// (a syntax error, not a mapping).
 fn read_profile(text: &str, ctx: &FileCtx, diags: &mut Vec<Diagnostic>) -> Option<ProfileRead> {
-    if let Ok(def) = crate::yaml::from_str::<ProfileDef>(text, &ctx.file) {
-        return Some(def.into());
-    }
-    let mut f = match crate::yaml::Fields::open(text, &ctx.file) {
-        Ok(f) => f,
-        Err(d) => {
-            diags.push(d.participant(&ctx.participant));
-            return None;
-        }
+    let whole = match crate::yaml::from_str::<ProfileDef>(text, &ctx.file) {
+        Ok(def) => return Some(def.into()),
+        Err(d) => d,
+    };
+    // Not a mapping (empty, a list, a syntax error): what the reading as a whole said.
+    let Ok(mut f) = crate::yaml::Fields::open(text, &ctx.file) else {
+        diags.push(whole.participant(&ctx.participant));
+        return None;
     };
     let read = ProfileRead {
         id: f.get("id", true),
@@ -753,6 +752,13 @@ flags: [glucose-lowering-medication]
             let j = [0, 1, 4][i];
             assert_eq!(alone[0].to_string(), shown[j]);
         }
+        // Not a mapping: what the reading as a whole says, as before.
+        let (_, d) = parse("- a\n- b\n");
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(
+            d[0].message,
+            "invalid type: sequence, expected struct ProfileDef"
+        );
         // A missing key and a bad date together; the birth date's check against enrolment
         // is left out while enrolment cannot be read.
         let (_, d) = parse(
