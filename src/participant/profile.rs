@@ -220,6 +220,22 @@ fn capped_name(name: &str) -> (String, bool) {
     (format!("{}…", name[..end].trim_end()), true)
 }
 
+/// Line and column (1-based) of the first thing written in `text` other than blank lines,
+/// comments and a `---` document start: where its mapping starts (line 1, column 1 when none).
+fn mapping_start(text: &str) -> (u64, u64) {
+    for (i, line) in text.lines().enumerate() {
+        let t = line.trim_start();
+        if t.is_empty() || t.starts_with('#') || line.trim_end() == "---" {
+            continue;
+        }
+        return (
+            i as u64 + 1,
+            (line.chars().count() - t.chars().count()) as u64 + 1,
+        );
+    }
+    (1, 1)
+}
+
 /// Whole years from `birth` to `on`.
 pub fn whole_years(birth: NaiveDate, on: NaiveDate) -> i32 {
     let mut y = on.year() - birth.year();
@@ -254,7 +270,12 @@ pub fn parse_profile(
                 });
                 d.at(l, col)
             }
-            None => d,
+            // Not found as `key:` at a line's start (a flow mapping `{id: …}`): at the start of
+            // the file's mapping, where a missing key is named too.
+            None => {
+                let (l, c) = mapping_start(text);
+                d.at(l, Some(c))
+            }
         }
     };
     if let Some(id) = def.id.as_deref()
@@ -284,10 +305,13 @@ pub fn parse_profile(
             None
         }
         (false, false) => {
+            // At the start of the mapping, where serde names a missing key.
+            let (l, c) = mapping_start(text);
             diags.push(
                 ctx.error("neither `birth_date` nor `age` is given")
                     .expected("`birth_date: YYYY-MM-DD` or `age: 43`")
-                    .hint("the energy equations need the participant's age"),
+                    .hint("the energy equations need the participant's age")
+                    .at(l, Some(c)),
             );
             None
         }
@@ -840,6 +864,19 @@ flags: [glucose-lowering-medication]
         let (p, d) = parse(&GOOD.replace("birth_date: 1983-09-14\n", ""));
         assert!(p.is_none());
         assert!(d[0].message.contains("neither"));
+        // At the start of the file's mapping (an error always has a line).
+        assert_eq!((d[0].line, d[0].column), (Some(1), Some(1)), "{}", d[0]);
+        let (_, d) = parse(&format!(
+            "# profile\n\n{}",
+            GOOD.replace("birth_date: 1983-09-14\n", "")
+        ));
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)), "{}", d[0]);
+        // A flow mapping: keys not at a line's start are placed at the mapping's start.
+        let (_, d) =
+            parse("{id: LW-0148, sex: female, age: 43, height: 168 cm, enrolled: 2027-03-01}\n");
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert!(d[0].message.contains("differs from the folder"), "{}", d[0]);
+        assert_eq!(d[0].line, Some(1), "{}", d[0]);
         let (p, _) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 7"));
         assert!(p.is_none());
     }
