@@ -23,24 +23,200 @@ use serde::de::DeserializeOwned;
 #[allow(clippy::result_large_err)]
 pub fn from_str<T: DeserializeOwned>(text: &str, file: &str) -> Result<T, Diagnostic> {
     check_budget(text, file)?;
-    serde_yaml::from_str(text).map_err(|e| {
-        let mut d = to_diagnostic(&e, file);
-        // serde_yaml gives no position for "more than one document": point at the separator
-        // that starts the second one.
-        if d.line.is_none() && d.message.contains("more than one document") {
-            d.line = second_document_line(text);
+    serde_yaml::from_str(text).map_err(|e| serde_error(&e, text, file))
+}
+
+/// The diagnostic for serde_yaml's error `e` in `text` (the content of `file`).
+fn serde_error(e: &serde_yaml::Error, text: &str, file: &str) -> Diagnostic {
+    let mut d = to_diagnostic(e, file);
+    // serde_yaml gives no position for "more than one document": point at the separator
+    // that starts the second one.
+    if d.line.is_none() && d.message.contains("more than one document") {
+        d.line = second_document_line(text);
+    }
+    // A date that could not be read is named as written (`enrolled: 01/06/2026` said only
+    // "input contains invalid characters", not what it had found there).
+    if d.found.is_none()
+        && is_date_error(&d.message)
+        && let (Some(line), Some(col)) = (d.line, d.column)
+        && let Some(v) = scalar_at(text, line, col)
+    {
+        d = d.found(format!("`{v}`"));
+    }
+    d
+}
+
+/// Reads a mapping document key by key, so that every key that cannot be read is reported,
+/// not only the first one as [`from_str`] into a struct does. Each read is of the same text
+/// by serde_yaml, so a problem has the line, column, key path and wording [`from_str`] gives
+/// it. Use [`Fields::open`], then [`Fields::get`] for each key and [`Fields::unknown_keys`].
+pub struct Fields<'a> {
+    text: &'a str,
+    file: &'a str,
+    /// The problems found so far.
+    pub problems: Vec<Diagnostic>,
+    /// The keys whose value could not be read (a check that needs one is left out).
+    pub failed: Vec<&'static str>,
+}
+
+impl<'a> Fields<'a> {
+    /// `Err` with the one diagnostic when `text` cannot be read key by key: a syntax error,
+    /// an input over its budget, several documents, or a document that is not a mapping.
+    #[allow(clippy::result_large_err)]
+    pub fn open(text: &'a str, file: &'a str) -> Result<Self, Diagnostic> {
+        check_budget(text, file)?;
+        match serde_yaml::from_str::<serde_yaml::Value>(text) {
+            Ok(serde_yaml::Value::Mapping(_)) => Ok(Fields {
+                text,
+                file,
+                problems: Vec::new(),
+                failed: Vec::new(),
+            }),
+            Ok(other) => Err(Diagnostic::error(file, "the file is not a mapping of keys")
+                .expected("`key: value` lines")
+                .found(match other {
+                    serde_yaml::Value::Null => "an empty document",
+                    serde_yaml::Value::Sequence(_) => "a list",
+                    _ => "a single value",
+                })),
+            Err(e) => Err(serde_error(&e, text, file)),
         }
-        // A date that could not be read is named as written (`enrolled: 01/06/2026` said only
-        // "input contains invalid characters", not what it had found there).
-        if d.found.is_none()
-            && is_date_error(&d.message)
-            && let (Some(line), Some(col)) = (d.line, d.column)
-            && let Some(v) = scalar_at(text, line, col)
-        {
-            d = d.found(format!("`{v}`"));
+    }
+
+    /// The value of the top-level `key` read as `T`: `None` when the key is absent (a problem
+    /// when `required`) or its value cannot be read (a problem).
+    pub fn get<T: DeserializeOwned>(&mut self, key: &'static str, required: bool) -> Option<T> {
+        use serde::de::DeserializeSeed;
+        let seed = Pick::<T> {
+            key,
+            required,
+            _t: std::marker::PhantomData,
+        };
+        match seed.deserialize(serde_yaml::Deserializer::from_str(self.text)) {
+            Ok(v) => v,
+            Err(e) => {
+                self.problems.push(serde_error(&e, self.text, self.file));
+                self.failed.push(key);
+                None
+            }
         }
-        d
-    })
+    }
+
+    /// Each top-level key that is not one of `known`, as the struct reading names it (line,
+    /// column, the keys expected), at most `max` of them (a file with more is another file).
+    pub fn unknown_keys(&mut self, known: &'static [&'static str], max: usize) {
+        use serde::de::DeserializeSeed;
+        for skip in 0..max {
+            let seed = Unknown {
+                known,
+                skip,
+                seen: std::cell::Cell::new(0),
+            };
+            match seed.deserialize(serde_yaml::Deserializer::from_str(self.text)) {
+                Ok(()) => return,
+                Err(e) => {
+                    let d = serde_error(&e, self.text, self.file);
+                    // A key that cannot be read as text fails every pass at the same place.
+                    if self.problems.last().is_some_and(|p| {
+                        (p.line, p.column, &p.message) == (d.line, d.column, &d.message)
+                    }) {
+                        return;
+                    }
+                    self.problems.push(d);
+                }
+            }
+        }
+    }
+}
+
+/// Reads one key of a mapping and skips the others.
+struct Pick<T> {
+    key: &'static str,
+    required: bool,
+    _t: std::marker::PhantomData<T>,
+}
+
+impl<'de, T: DeserializeOwned> serde::de::DeserializeSeed<'de> for Pick<T> {
+    type Value = Option<T>;
+    fn deserialize<D: serde::Deserializer<'de>>(self, d: D) -> Result<Option<T>, D::Error> {
+        d.deserialize_map(self)
+    }
+}
+
+impl<'de, T: DeserializeOwned> serde::de::Visitor<'de> for Pick<T> {
+    type Value = Option<T>;
+    fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("a mapping of keys")
+    }
+    fn visit_map<A: serde::de::MapAccess<'de>>(self, mut map: A) -> Result<Option<T>, A::Error> {
+        let mut out = None;
+        while let Some(k) = map.next_key::<Value>()? {
+            if k.as_str() == Some(self.key) {
+                out = Some(map.next_value::<T>()?);
+            } else {
+                map.next_value::<serde::de::IgnoredAny>()?;
+            }
+        }
+        if out.is_none() && self.required {
+            return Err(serde::de::Error::missing_field(self.key));
+        }
+        Ok(out)
+    }
+}
+
+/// Fails at the key of a mapping that is the `skip`-th (from 0) not among `known`, with the
+/// error a struct reading gives for it (so at the key's own line and column).
+struct Unknown {
+    known: &'static [&'static str],
+    skip: usize,
+    seen: std::cell::Cell<usize>,
+}
+
+impl<'de> serde::de::DeserializeSeed<'de> for Unknown {
+    type Value = ();
+    fn deserialize<D: serde::Deserializer<'de>>(self, d: D) -> Result<(), D::Error> {
+        d.deserialize_map(self)
+    }
+}
+
+impl<'de> serde::de::Visitor<'de> for Unknown {
+    type Value = ();
+    fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("a mapping of keys")
+    }
+    fn visit_map<A: serde::de::MapAccess<'de>>(self, mut map: A) -> Result<(), A::Error> {
+        while map.next_key_seed(&self)?.is_some() {
+            map.next_value::<serde::de::IgnoredAny>()?;
+        }
+        Ok(())
+    }
+}
+
+impl<'de> serde::de::DeserializeSeed<'de> for &Unknown {
+    type Value = ();
+    fn deserialize<D: serde::Deserializer<'de>>(self, d: D) -> Result<(), D::Error> {
+        // Read as a string inside serde_yaml, so an error raised here is placed at the key.
+        d.deserialize_str(self)
+    }
+}
+
+impl<'de> serde::de::Visitor<'de> for &Unknown {
+    type Value = ();
+    fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("a key")
+    }
+    fn visit_str<E: serde::de::Error>(self, k: &str) -> Result<(), E> {
+        if self.known.contains(&k) {
+            return Ok(());
+        }
+        let n = self.seen.get();
+        self.seen.set(n + 1);
+        if n == self.skip {
+            Err(E::unknown_field(k, self.known))
+        } else {
+            Ok(())
+        }
+    }
 }
 
 /// The plain or quoted scalar that starts at 1-based `line` and `column` of `text` (up to a

@@ -96,6 +96,146 @@ pub const HEIGHT_CM_RANGE: (f64, f64) = (100.0, 250.0);
 /// measurement devices report).
 pub const BODY_FAT_RANGE: (f64, f64) = (3.0, 70.0);
 
+/// The keys of `profile.yaml`, in the order [`ProfileDef`] declares them (the order serde names
+/// them in "expected one of").
+const PROFILE_KEYS: &[&str] = &[
+    "id",
+    "name",
+    "sex",
+    "birth_date",
+    "age",
+    "height",
+    "enrolled",
+    "withdrew",
+    "groups",
+    "body_fat_percent",
+    "targets",
+    "flags",
+];
+
+/// `profile.yaml` as read: a key is `None` when it is absent or could not be read.
+struct ProfileRead {
+    id: Option<String>,
+    name: Option<String>,
+    sex: Option<Sex>,
+    birth_date: Option<NaiveDate>,
+    age: Option<f64>,
+    height: Option<serde_yaml::Value>,
+    enrolled: Option<NaiveDate>,
+    withdrew: Option<NaiveDate>,
+    groups: BTreeMap<String, serde_yaml::Value>,
+    body_fat_percent: Option<f64>,
+    targets: Option<TargetsDef>,
+    flags: Vec<String>,
+    /// Keys whose value could not be read (each reported).
+    failed: Vec<&'static str>,
+}
+
+impl From<ProfileDef> for ProfileRead {
+    fn from(d: ProfileDef) -> Self {
+        ProfileRead {
+            id: Some(d.id),
+            name: d.name,
+            sex: Some(d.sex),
+            birth_date: d.birth_date,
+            age: d.age,
+            height: Some(d.height),
+            enrolled: Some(d.enrolled),
+            withdrew: d.withdrew,
+            groups: d.groups,
+            body_fat_percent: d.body_fat_percent,
+            targets: d.targets,
+            flags: d.flags,
+            failed: Vec::new(),
+        }
+    }
+}
+
+/// Reads `profile.yaml`'s keys. When the file reads as a whole that is all; otherwise every
+/// key is read on its own so that each key that cannot be read (a misspelt sex, an impossible
+/// date, an unknown key, a missing one) is reported, not only the first, and the checks of the
+/// keys that were read still run. `None` when the file cannot be read key by key at all
+/// (a syntax error, not a mapping).
+fn read_profile(text: &str, ctx: &FileCtx, diags: &mut Vec<Diagnostic>) -> Option<ProfileRead> {
+    let whole = match crate::yaml::from_str::<ProfileDef>(text, &ctx.file) {
+        Ok(def) => return Some(def.into()),
+        Err(d) => d,
+    };
+    // Not a mapping (empty, a list, a syntax error): what the reading as a whole said.
+    let Ok(mut f) = crate::yaml::Fields::open(text, &ctx.file) else {
+        diags.push(whole.participant(&ctx.participant));
+        return None;
+    };
+    let read = ProfileRead {
+        id: f.get("id", true),
+        name: f.get::<Option<String>>("name", false).flatten(),
+        sex: f.get("sex", true),
+        birth_date: f.get::<Option<NaiveDate>>("birth_date", false).flatten(),
+        age: f.get::<Option<f64>>("age", false).flatten(),
+        height: f.get("height", true),
+        enrolled: f.get("enrolled", true),
+        withdrew: f.get::<Option<NaiveDate>>("withdrew", false).flatten(),
+        groups: f.get("groups", false).unwrap_or_default(),
+        body_fat_percent: f.get::<Option<f64>>("body_fat_percent", false).flatten(),
+        targets: f.get::<Option<TargetsDef>>("targets", false).flatten(),
+        flags: f.get("flags", false).unwrap_or_default(),
+        failed: Vec::new(),
+    };
+    // At most 20 unknown keys: a file with more is not a profile.
+    f.unknown_keys(PROFILE_KEYS, 20);
+    let mut problems = std::mem::take(&mut f.problems);
+    problems.sort_by_key(|d| (d.line.unwrap_or(u64::MAX), d.column.unwrap_or(0)));
+    diags.extend(
+        problems
+            .into_iter()
+            .map(|d| d.participant(&ctx.participant)),
+    );
+    Some(ProfileRead {
+        failed: f.failed,
+        ..read
+    })
+}
+
+/// The most characters of a name the reports show (common practice: generous for names of many
+/// parts; a longer value is other text pasted into `name:`, and it pushed the report's heading
+/// over several pages).
+pub const NAME_MAX_CHARS: usize = 100;
+
+/// `name` as the reports show it, and whether it was cut: at most [`NAME_MAX_CHARS`]
+/// characters (with the accents that belong to the last one) and then `…`.
+fn capped_name(name: &str) -> (String, bool) {
+    use unicode_normalization::char::is_combining_mark;
+    let mut chars = name.char_indices();
+    let Some((cut, _)) = chars.nth(NAME_MAX_CHARS) else {
+        return (name.to_string(), false);
+    };
+    // A combining accent stays with its letter.
+    let end = name[cut..]
+        .char_indices()
+        .find(|&(_, c)| !is_combining_mark(c))
+        .map_or(name.len(), |(i, _)| cut + i);
+    if end == name.len() {
+        return (name.to_string(), false);
+    }
+    (format!("{}…", name[..end].trim_end()), true)
+}
+
+/// Line and column (1-based) of the first thing written in `text` other than blank lines,
+/// comments and a `---` document start: where its mapping starts (line 1, column 1 when none).
+fn mapping_start(text: &str) -> (u64, u64) {
+    for (i, line) in text.lines().enumerate() {
+        let t = line.trim_start();
+        if t.is_empty() || t.starts_with('#') || line.trim_end() == "---" {
+            continue;
+        }
+        return (
+            i as u64 + 1,
+            (line.chars().count() - t.chars().count()) as u64 + 1,
+        );
+    }
+    (1, 1)
+}
+
 /// Whole years from `birth` to `on`.
 pub fn whole_years(birth: NaiveDate, on: NaiveDate) -> i32 {
     let mut y = on.year() - birth.year();
@@ -114,14 +254,8 @@ pub fn parse_profile(
     ctx: &FileCtx,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Profile> {
-    let def: ProfileDef = match crate::yaml::from_str(text, &ctx.file) {
-        Ok(d) => d,
-        Err(d) => {
-            diags.push(d.participant(&ctx.participant));
-            return None;
-        }
-    };
     let before = diags.len();
+    let def = read_profile(text, ctx, diags)?;
     let at = |key: &str, d: Diagnostic| {
         let d = d.field(key);
         match key_line(text, key) {
@@ -136,20 +270,32 @@ pub fn parse_profile(
                 });
                 d.at(l, col)
             }
-            None => d,
+            // Not found as `key:` at a line's start (a flow mapping `{id: …}`): at the start of
+            // the file's mapping, where a missing key is named too.
+            None => {
+                let (l, c) = mapping_start(text);
+                d.at(l, Some(c))
+            }
         }
     };
-    if def.id != folder_id {
+    if let Some(id) = def.id.as_deref()
+        && id != folder_id
+    {
         diags.push(at(
             "id",
             ctx.error("the profile id differs from the folder name")
                 .expected(format!("`{folder_id}`"))
-                .found(format!("`{}`", def.id))
+                .found(format!("`{id}`"))
                 .hint("the folder name is the participant id; make them the same"),
         ));
     }
-    let age_years = match (def.birth_date, def.age) {
-        (Some(_), Some(_)) => {
+    // A key whose value could not be read was still given (its problem is reported already).
+    let given = |key: &str, read: bool| read || def.failed.contains(&key);
+    let age_years = match (
+        given("birth_date", def.birth_date.is_some()),
+        given("age", def.age.is_some()),
+    ) {
+        (true, true) => {
             diags.push(at(
                 "age",
                 ctx.error("both `birth_date` and `age` are given")
@@ -158,27 +304,34 @@ pub fn parse_profile(
             ));
             None
         }
-        (None, None) => {
+        (false, false) => {
+            // At the start of the mapping, where serde names a missing key.
+            let (l, c) = mapping_start(text);
             diags.push(
                 ctx.error("neither `birth_date` nor `age` is given")
                     .expected("`birth_date: YYYY-MM-DD` or `age: 43`")
-                    .hint("the energy equations need the participant's age"),
+                    .hint("the energy equations need the participant's age")
+                    .at(l, Some(c)),
             );
             None
         }
-        (Some(b), None) => {
-            if b >= def.enrolled {
-                diags.push(at(
-                    "birth_date",
-                    ctx.error("the birth date is not before enrolment")
-                        .found(b.to_string()),
-                ));
-                None
-            } else {
-                Some(whole_years(b, def.enrolled) as f64)
+        _ => match (def.birth_date, def.age, def.enrolled) {
+            (Some(b), None, Some(enrolled)) => {
+                if b >= enrolled {
+                    diags.push(at(
+                        "birth_date",
+                        ctx.error("the birth date is not before enrolment")
+                            .found(b.to_string()),
+                    ));
+                    None
+                } else {
+                    Some(whole_years(b, enrolled) as f64)
+                }
             }
-        }
-        (None, Some(a)) => Some(a),
+            (None, Some(a), _) => Some(a),
+            // A date that could not be read (reported where it was read).
+            _ => None,
+        },
     };
     if let Some(a) = age_years {
         // Common practice: the equations used are adult equations; an age outside 18–110
@@ -207,7 +360,8 @@ pub fn parse_profile(
         }
     }
     let height = match &def.height {
-        serde_yaml::Value::String(s) => match parse_length(s) {
+        None => None,
+        Some(serde_yaml::Value::String(s)) => match parse_length(s) {
             Ok(h) => Some(h),
             Err(e) => {
                 diags.push(at(
@@ -220,7 +374,7 @@ pub fn parse_profile(
                 None
             }
         },
-        serde_yaml::Value::Number(n) => {
+        Some(serde_yaml::Value::Number(n)) => {
             diags.push(at(
                 "height",
                 ctx.error("the height has no unit")
@@ -230,7 +384,7 @@ pub fn parse_profile(
             ));
             None
         }
-        other => {
+        Some(other) => {
             diags.push(at(
                 "height",
                 ctx.error("unreadable height")
@@ -251,13 +405,13 @@ pub fn parse_profile(
                 .hint("check the number and its unit"),
         ));
     }
-    if let Some(wd) = def.withdrew
-        && wd < def.enrolled
+    if let (Some(wd), Some(enrolled)) = (def.withdrew, def.enrolled)
+        && wd < enrolled
     {
         diags.push(at(
             "withdrew",
             ctx.error("the withdrawal date is before enrolment")
-                .expected(format!("a date on or after {}", def.enrolled))
+                .expected(format!("a date on or after {enrolled}"))
                 .found(wd.to_string()),
         ));
     }
@@ -343,15 +497,31 @@ pub fn parse_profile(
         .name
         .as_deref()
         .map(|n| invisible_checked(n, "the name", "name", &at, ctx, diags))
-        .filter(|n| !n.trim().is_empty());
+        .filter(|n| !n.trim().is_empty())
+        .map(|n| {
+            let (shown, cut) = capped_name(n.trim());
+            if cut {
+                let count = n.trim().chars().count();
+                diags.push(at(
+                    "name",
+                    ctx.warning(format!(
+                        "the name is {count} characters long; the reports show its first {NAME_MAX_CHARS} and `…`"
+                    ))
+                    .expected(format!("a name of at most {NAME_MAX_CHARS} characters"))
+                    .found(format!("{count} characters"))
+                    .hint("check the value: a name this long is most likely other text pasted into `name:`"),
+                ));
+            }
+            shown
+        });
     Some(Profile {
-        id: def.id,
+        id: def.id?,
         name,
-        sex: def.sex,
+        sex: def.sex?,
         birth_date: def.birth_date,
         age_years: age_years?,
         height: height?,
-        enrolled: def.enrolled,
+        enrolled: def.enrolled?,
         withdrew: def.withdrew,
         groups,
         body_fat_percent,
@@ -557,6 +727,122 @@ flags: [glucose-lowering-medication]
         }
     }
 
+    /// A profile with a misspelt sex, an impossible date, a bare height and two unknown keys
+    /// was reported one problem per `check`: the first key serde could not read stopped the
+    /// reading. Every problem is reported at once, each as it is when it is the only one.
+    #[test]
+    fn every_problem_of_a_profile_is_reported_at_once() {
+        let defects: [(&str, &str); 4] = [
+            ("sex: female", "sex: f"),
+            ("enrolled: 2027-03-01", "enrolled: 2027-02-30"),
+            ("5 ft 6 in", "168"),
+            (
+                "flags: [glucose-lowering-medication]\n",
+                "flags: [glucose-lowering-medication]\nhair: brown\neyes: blue\n",
+            ),
+        ];
+        let mut text = GOOD.to_string();
+        for (from, to) in defects {
+            text = text.replace(from, to);
+        }
+        let (p, d) = parse(&text);
+        assert!(p.is_none());
+        let shown: Vec<String> = d.iter().map(|x| x.to_string()).collect();
+        let at: Vec<_> = d.iter().map(|x| (x.line, x.column)).collect();
+        assert_eq!(
+            at,
+            [
+                (Some(3), Some(6)),
+                (Some(6), Some(11)),
+                (Some(12), Some(1)),
+                (Some(13), Some(1)),
+                (Some(5), Some(9)),
+            ],
+            "{shown:#?}"
+        );
+        assert!(
+            d.iter().all(|x| x.severity == Severity::Error),
+            "{shown:#?}"
+        );
+        assert_eq!(d[0].found.as_deref(), Some("`f`"));
+        assert_eq!(d[1].found.as_deref(), Some("`2027-02-30`"));
+        assert_eq!(d[2].found.as_deref(), Some("`hair`"));
+        assert_eq!(d[3].found.as_deref(), Some("`eyes`"));
+        assert_eq!(d[4].message, "the height has no unit");
+        // Each is what the reading says when it is the only problem.
+        for (i, (from, to)) in defects.iter().enumerate().take(3) {
+            let (_, alone) = parse(&GOOD.replace(from, to));
+            assert_eq!(alone.len(), 1, "{alone:?}");
+            let j = [0, 1, 4][i];
+            assert_eq!(alone[0].to_string(), shown[j]);
+        }
+        // Not a mapping: what the reading as a whole says, as before.
+        let (_, d) = parse("- a\n- b\n");
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(
+            d[0].message,
+            "invalid type: sequence, expected struct ProfileDef"
+        );
+        // A missing key and a bad date together; the birth date's check against enrolment
+        // is left out while enrolment cannot be read.
+        let (_, d) = parse(
+            &GOOD
+                .replace("sex: female\n", "")
+                .replace("2027-03-01", "01/03/2027"),
+        );
+        assert_eq!(d.len(), 2, "{d:?}");
+        assert_eq!(d[0].message, "missing field `sex`");
+        assert_eq!(d[0].participant.as_deref(), Some("LW-0147"));
+        assert_eq!(
+            (d[1].line, d[1].found.as_deref()),
+            (Some(5), Some("`01/03/2027`"))
+        );
+        // `age` and an unreadable `birth_date`: both were given, which is its own problem.
+        let (_, d) =
+            parse(&GOOD.replace("birth_date: 1983-09-14", "birth_date: 1983-13-14\nage: 43"));
+        assert_eq!(d.len(), 2, "{d:?}");
+        assert!(d[0].message.contains("not a valid date"), "{}", d[0]);
+        assert!(d[1].message.contains("both"), "{}", d[1]);
+    }
+
+    /// A name of 3,000 letters filled page 1 of the PDF and ran over its footer. The reports
+    /// show its first 100 characters and `…`, with a warning at the name.
+    #[test]
+    fn a_very_long_name_is_cut_with_a_warning() {
+        let long = "W".repeat(3000);
+        let (p, d) = parse(&GOOD.replace("Dana Example", &long));
+        assert_eq!(
+            p.unwrap().name.as_deref(),
+            Some(format!("{}…", "W".repeat(100)).as_str())
+        );
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, Severity::Warning);
+        assert_eq!(
+            d[0].message,
+            "the name is 3000 characters long; the reports show its first 100 and `…`"
+        );
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(7)));
+        assert_eq!(d[0].found.as_deref(), Some("3000 characters"));
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("a name of at most 100 characters")
+        );
+        // 100 characters is shown whole; an accent after the 100th stays with its letter.
+        let hundred = "Ab".repeat(50);
+        let (p, d) = parse(&GOOD.replace("Dana Example", &hundred));
+        assert_eq!(p.unwrap().name.as_deref(), Some(hundred.as_str()));
+        assert!(d.is_empty(), "{d:?}");
+        let accented = format!("{}e\\u0301", "a".repeat(99));
+        let (p, d) = parse(&GOOD.replace("Dana Example", &format!("\"{accented}\"")));
+        assert_eq!(p.unwrap().name.unwrap().chars().count(), 101, "{d:?}");
+        assert!(d.is_empty(), "{d:?}");
+        let (p, _) = parse(&GOOD.replace("Dana Example", &format!("\"{accented} Z\"")));
+        assert_eq!(
+            p.unwrap().name.unwrap(),
+            format!("{}e\u{301}…", "a".repeat(99))
+        );
+    }
+
     #[test]
     fn unknown_key_is_named_with_line() {
         let (p, d) = parse(&format!("{GOOD}hair: brown\n"));
@@ -578,6 +864,19 @@ flags: [glucose-lowering-medication]
         let (p, d) = parse(&GOOD.replace("birth_date: 1983-09-14\n", ""));
         assert!(p.is_none());
         assert!(d[0].message.contains("neither"));
+        // At the start of the file's mapping (an error always has a line).
+        assert_eq!((d[0].line, d[0].column), (Some(1), Some(1)), "{}", d[0]);
+        let (_, d) = parse(&format!(
+            "# profile\n\n{}",
+            GOOD.replace("birth_date: 1983-09-14\n", "")
+        ));
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)), "{}", d[0]);
+        // A flow mapping: keys not at a line's start are placed at the mapping's start.
+        let (_, d) =
+            parse("{id: LW-0148, sex: female, age: 43, height: 168 cm, enrolled: 2027-03-01}\n");
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert!(d[0].message.contains("differs from the folder"), "{}", d[0]);
+        assert_eq!(d[0].line, Some(1), "{}", d[0]);
         let (p, _) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 7"));
         assert!(p.is_none());
     }

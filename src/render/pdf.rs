@@ -397,6 +397,10 @@ impl Layout {
             _ => "H3",
         });
         for l in &lines {
+            // A heading taller than a page (a name of thousands of letters, an override
+            // template's long title) goes on over the page break; it was drawn on down over
+            // the running footer and off the page.
+            self.ensure(lh);
             let baseline = self.y - size * ASCENT;
             self.text(Face::Bold, size, ink(), MARGIN_X, baseline, l);
             self.y -= lh;
@@ -786,7 +790,7 @@ fn auto_widths(header: &[String], rows: &[Vec<String>], ncols: usize) -> Vec<f32
         return natural;
     }
     if min_sum >= CONTENT_W {
-        return min;
+        return fair_minimums(&min);
     }
     let spare = CONTENT_W - min_sum;
     let want: f32 = natural_sum - min_sum;
@@ -794,6 +798,29 @@ fn auto_widths(header: &[String], rows: &[Vec<String>], ncols: usize) -> Vec<f32
         .zip(&natural)
         .map(|(lo, hi)| lo + spare * (hi - lo) / want)
         .collect()
+}
+
+/// Column minimums (each its longest word) that do not fit the page, made to fit by narrowing
+/// only the widest: every column that fits its share keeps its words whole, and the widest
+/// share the rest equally (their long words break between characters, as `wrap` does). A
+/// 100-letter name without a space in a seven-column table took nine-tenths of the width, and
+/// the other columns broke every word after two letters.
+fn fair_minimums(min: &[f32]) -> Vec<f32> {
+    let mut sorted = min.to_vec();
+    sorted.sort_by(f32::total_cmp);
+    // The largest cap with: the columns under it, plus every other column at it, fill the page.
+    let mut below = 0.0;
+    let mut cap = CONTENT_W / min.len().max(1) as f32;
+    for (i, w) in sorted.iter().enumerate() {
+        let share = (CONTENT_W - below) / (sorted.len() - i) as f32;
+        if *w > share {
+            cap = share;
+            break;
+        }
+        below += w;
+        cap = *w;
+    }
+    min.iter().map(|w| w.min(cap)).collect()
 }
 
 /// Running header and footer for page `n` of `m`.
@@ -1807,6 +1834,107 @@ pub(crate) mod tests {
         assert!(texts[0].contains("Filler line 27"));
         assert!(!texts[0].contains("Weight over time"));
         assert!(texts[1].contains("Weight over time") && texts[1].contains("weigh-ins"));
+    }
+
+    /// A level-1 heading of 3,000 letters (a participant's name) filled page 1 and was drawn on
+    /// over the running footer and off the page: its lines were never given a page break.
+    #[test]
+    fn a_heading_taller_than_a_page_goes_on_over_the_page_break() {
+        let name = "W".repeat(3000);
+        let mut layout = Layout::new();
+        layout.block(
+            &Block::Heading {
+                level: 1,
+                text: name.clone(),
+            },
+            None,
+        );
+        layout.block(&Block::Paragraph("After the heading.".into()), None);
+        assert!(layout.pages.len() >= 3, "{} pages", layout.pages.len());
+        let mut shown = String::new();
+        for (n, page) in layout.pages.iter().enumerate() {
+            for op in page {
+                if let Op::SetTextMatrix {
+                    matrix: TextMatrix::Translate(_, Pt(baseline)),
+                } = op
+                {
+                    // The lowest baseline of a 17 pt line that fits: its descent stays above
+                    // the content's bottom, clear of the footer's rule at 15 mm.
+                    assert!(
+                        *baseline >= CONTENT_BOTTOM - 0.01,
+                        "page {}: text at {baseline} below the content's bottom {CONTENT_BOTTOM}",
+                        n + 1
+                    );
+                }
+                if let Op::ShowText { items } = op {
+                    for i in items {
+                        if let TextItem::Text(t) = i {
+                            shown.push_str(t);
+                        }
+                    }
+                }
+            }
+        }
+        // Nothing is lost over the breaks.
+        assert_eq!(shown, format!("{name}After the heading."));
+    }
+
+    /// The clinician follow-up list with a 100-letter name: the name's column took nearly the
+    /// whole width and every other column broke its words after two letters (nine pages for
+    /// four people). The other columns keep their words whole.
+    #[test]
+    fn one_very_long_word_does_not_crush_the_other_columns() {
+        let header: Vec<String> = [
+            "Participant",
+            "Name",
+            "Status",
+            "Reason",
+            "Values",
+            "Dates",
+            "Details",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+        let row: Vec<String> = [
+            "SG-001".to_string(),
+            format!("{}…", "W".repeat(100)),
+            "continuing".into(),
+            "Pregnancy noted in the profile".into(),
+            "weight 64.4 kg; BMI 24.4".into(),
+            "1 Sep 2026 to 30 Sep 2026".into(),
+            "The profile notes a pregnancy.".into(),
+        ]
+        .to_vec();
+        let rows = vec![row.clone()];
+        let widths = auto_widths(&header, &rows, 7);
+        // As the table lays them out: scaled to the page's width.
+        let total: f32 = widths.iter().sum();
+        let widths: Vec<f32> = widths.iter().map(|w| w / total * CONTENT_W).collect();
+        for (i, w) in widths.iter().enumerate() {
+            if i == 1 {
+                continue;
+            }
+            for (cell, face) in [(&header[i], Face::Bold), (&row[i], Face::Regular)] {
+                let longest = cell
+                    .split_whitespace()
+                    .map(|w| font::text_width(face, w, TABLE))
+                    .fold(0.0f32, f32::max);
+                assert!(
+                    *w >= longest + 8.0 - 0.01,
+                    "column {i} ({cell}): {w} < {longest}"
+                );
+            }
+        }
+        // Unchanged when the words fit: each column at least its longest word.
+        assert_eq!(fair_minimums(&[50.0, 60.0]), vec![50.0, 60.0]);
+        let capped = fair_minimums(&[50.0, 900.0, 60.0]);
+        assert_eq!(capped[0], 50.0);
+        assert_eq!(capped[2], 60.0);
+        assert!(
+            (capped.iter().sum::<f32>() - CONTENT_W).abs() < 0.01,
+            "{capped:?}"
+        );
     }
 
     #[test]

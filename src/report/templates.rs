@@ -53,6 +53,9 @@ pub struct TemplateSet {
     /// Whether any file comes from the program's own folder: then every page it makes is checked
     /// as a browser reads it ([`output_problem`]) before it is used.
     overridden: bool,
+    /// The text of each file from the program's own folder, by its path: a problem found in a
+    /// page is located in them.
+    override_texts: Vec<(String, String)>,
 }
 
 /// Why templates could not be loaded.
@@ -120,10 +123,16 @@ impl TemplateSet {
             sources.push((name.clone(), src.clone()));
         }
         let overridden = sources.iter().any(|(_, src)| src != "built-in");
+        let override_texts = files
+            .into_iter()
+            .filter(|(_, _, src)| src != "built-in")
+            .map(|(_, text, src)| (src, text))
+            .collect();
         Ok(TemplateSet {
             hb,
             sources,
             overridden,
+            override_texts,
         })
     }
 
@@ -154,10 +163,16 @@ impl TemplateSet {
         // split across partials), and input text printed inside CSS is CSS. So the page an
         // override made is checked again as a browser parses it.
         if self.overridden
-            && let Some(what) = output_problem(&html)
+            && let Some((what, needle)) = output_breach(&html)
         {
+            // Where it was written, when the page's text around it tells: the template's
+            // literal text before the problem and the problem's first, literal, piece.
+            let at = needle_offset(&html, &needle)
+                .and_then(|at| locate_in_sources(&html, at, &self.override_texts))
+                .map(|(path, line, column)| format!("; it starts at {path}:{line}:{column}"))
+                .unwrap_or_default();
             return Err(RenderError::Template(format!(
-                "the page made from {} {what} (where the file's text does not show it, a \
+                "the page made from {} {what}{at} (where the file's text does not show it, a \
                  handlebars expression built it: a comment, literal or partial inside a tag, an \
                  attribute or CSS, or input text printed into CSS)",
                 self.source_of(name)
@@ -189,35 +204,69 @@ impl TemplateSet {
     }
 }
 
-/// Reads a user's template folder with our own walk: symbolic links and anything that is not a
-/// plain `.hbs` file inside the folder are refused (handlebars' own directory loader follows
-/// links, which could pull any readable file into a report).
-fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, TemplateError> {
+/// The files of a user's template folder that are read, as (template name, path): its `.hbs`
+/// files and those of its `partials/` folder, the layout `templates dump` writes and the only
+/// one a template can use; nothing deeper (a `report.templates` of `/` or `..` walked and
+/// compiled every `.hbs` file of the whole tree). A symbolic link among them (or as
+/// `partials`) is refused; anything that is not a plain file is left out. The run's
+/// fingerprint hashes the same files ([`crate::run::plan::run_key`]).
+pub fn override_files(dir: &Path) -> Result<Vec<(String, PathBuf)>, TemplateError> {
     let mut out = Vec::new();
-    for entry in walkdir::WalkDir::new(dir)
+    override_level(dir, "", &mut out)?;
+    let partials = dir.join("partials");
+    match std::fs::symlink_metadata(&partials) {
+        Ok(m) if m.file_type().is_symlink() => {
+            return Err(TemplateError::File(
+                partials.display().to_string(),
+                "symbolic links are not allowed in a template folder".into(),
+            ));
+        }
+        Ok(m) if m.is_dir() => override_level(&partials, "partials/", &mut out)?,
+        _ => {}
+    }
+    Ok(out)
+}
+
+/// The `.hbs` files directly in `folder`, named `prefix` + file name.
+fn override_level(
+    folder: &Path,
+    prefix: &str,
+    out: &mut Vec<(String, PathBuf)>,
+) -> Result<(), TemplateError> {
+    for entry in walkdir::WalkDir::new(folder)
+        .min_depth(1)
+        .max_depth(1)
         .follow_links(false)
         .sort_by_file_name()
     {
         let entry =
-            entry.map_err(|e| TemplateError::File(dir.display().to_string(), e.to_string()))?;
+            entry.map_err(|e| TemplateError::File(folder.display().to_string(), e.to_string()))?;
         let path = entry.path();
+        if path.extension().is_none_or(|e| e != "hbs") {
+            continue;
+        }
         if entry.path_is_symlink() {
             return Err(TemplateError::File(
                 path.display().to_string(),
                 "symbolic links are not allowed in a template folder".into(),
             ));
         }
-        if !entry.file_type().is_file() || path.extension().is_none_or(|e| e != "hbs") {
-            continue;
+        if entry.file_type().is_file() {
+            let name = format!("{prefix}{}", entry.file_name().to_string_lossy());
+            out.push((name, path.to_path_buf()));
         }
-        let rel: PathBuf = path
-            .strip_prefix(dir)
-            .expect("walk stays inside")
-            .to_path_buf();
-        let name = rel.to_string_lossy().replace('\\', "/");
+    }
+    Ok(())
+}
+
+/// Reads a user's template folder ([`override_files`]) with our own walk (handlebars' own
+/// directory loader follows links, which could pull any readable file into a report).
+fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, TemplateError> {
+    let mut out = Vec::new();
+    for (name, path) in override_files(dir)? {
         // Opened without following links, regular files only (a link swapped in after the
         // walk is still refused).
-        let text = crate::limits::read_input(path)
+        let text = crate::limits::read_input(&path)
             .map_err(|e| e.to_string())
             .and_then(|b| String::from_utf8(b).map_err(|_| "the file is not UTF-8 text".into()))
             .map_err(|e| TemplateError::File(path.display().to_string(), e))?;
@@ -479,6 +528,21 @@ fn css_url(css: &[u8], offset: usize) -> Option<(usize, String)> {
 /// to the template files, on the result. A problem is described for the message
 /// ("holds `<script>`…").
 pub fn output_problem(html: &str) -> Option<String> {
+    output_breach(html).map(|(what, _)| what)
+}
+
+/// Where a problem [`output_breach`] found is written in the page's text: the piece of text
+/// that starts it.
+#[derive(Debug, Clone, PartialEq)]
+enum Needle {
+    /// An element's start tag (`<script`).
+    Element(String),
+    /// An attribute, by its name, and for an address the start of its value as written.
+    Attribute(String, Option<String>),
+}
+
+/// [`output_problem`], with the piece of the page's text that starts the problem.
+fn output_breach(html: &str) -> Option<(String, Needle)> {
     let page = scraper::Html::parse_document(html);
     for node in page.tree.nodes() {
         let scraper::Node::Element(e) = node.value() else {
@@ -486,9 +550,12 @@ pub fn output_problem(html: &str) -> Option<String> {
         };
         let element = e.name().to_ascii_lowercase();
         if ACTIVE_ELEMENTS.contains(&element.as_str()) {
-            return Some(format!(
-                "holds `<{element}>`, which is not allowed in a report: a report runs no code \
-                 and embeds or submits to no other page"
+            return Some((
+                format!(
+                    "holds `<{element}>`, which is not allowed in a report: a report runs no code \
+                     and embeds or submits to no other page"
+                ),
+                Needle::Element(element),
             ));
         }
         if element == "style" {
@@ -500,15 +567,21 @@ pub fn output_problem(html: &str) -> Option<String> {
                 })
                 .collect();
             if let Some(what) = css_outside(&css) {
-                return Some(format!("holds a `<style>` element with {what}"));
+                return Some((
+                    format!("holds a `<style>` element with {what}"),
+                    Needle::Element(element),
+                ));
             }
         }
         for (attr, value) in e.attrs() {
             let attr = attr.to_ascii_lowercase();
             if attr.starts_with("on") || attr == "http-equiv" || attr == "srcdoc" {
-                return Some(format!(
-                    "holds the attribute `{attr}` (on `<{element}>`), which is not allowed in a \
-                     report: a report runs no code and never reloads or redirects itself"
+                return Some((
+                    format!(
+                        "holds the attribute `{attr}` (on `<{element}>`), which is not allowed in a \
+                         report: a report runs no code and never reloads or redirects itself"
+                    ),
+                    Needle::Attribute(attr, None),
                 ));
             }
             // A browser strips leading and trailing spaces and control characters from a URL.
@@ -517,21 +590,137 @@ pub fn output_problem(html: &str) -> Option<String> {
                 && !address.is_empty()
                 && !address.starts_with('#')
             {
-                return Some(format!(
-                    "holds `{attr}=\"{}\"` (on `<{element}>`), an address outside the report; \
-                     a report is self-contained: only links within the page (`#…`) are allowed",
-                    clip(value, 200)
+                let start: String = address.chars().take(12).collect();
+                return Some((
+                    format!(
+                        "holds `{attr}=\"{}\"` (on `<{element}>`), an address outside the report; \
+                         a report is self-contained: only links within the page (`#…`) are allowed",
+                        clip(value, 200)
+                    ),
+                    Needle::Attribute(attr, Some(start)),
                 ));
             }
             // `style`, and SVG's presentation attributes (`fill="url(…)"`, `filter`, `mask`).
             if let Some(what) = css_outside(value) {
-                return Some(format!(
-                    "holds the attribute `{attr}` (on `<{element}>`) with {what}"
+                return Some((
+                    format!("holds the attribute `{attr}` (on `<{element}>`) with {what}"),
+                    Needle::Attribute(attr, None),
                 ));
             }
         }
     }
     None
+}
+
+/// The byte offset in `html` where `needle` is written, when it is written there exactly once
+/// (otherwise which one the problem is cannot be told from the text, and `None`). Names are
+/// matched in any case, as a browser reads them.
+fn needle_offset(html: &str, needle: &Needle) -> Option<usize> {
+    let lower = html.to_ascii_lowercase();
+    let name_end = |c: Option<char>| c.is_none_or(|c| c.is_whitespace() || "/>=".contains(c));
+    let found: Vec<usize> = match needle {
+        Needle::Element(name) => {
+            let tag = format!("<{name}");
+            lower
+                .match_indices(&tag)
+                .filter(|(at, _)| name_end(lower[at + tag.len()..].chars().next()))
+                .map(|(at, _)| at)
+                .collect()
+        }
+        Needle::Attribute(name, value) => lower
+            .match_indices(name.as_str())
+            .filter(|(at, _)| {
+                let before = lower[..*at].chars().next_back();
+                let after = &lower[at + name.len()..];
+                before.is_some_and(|c| c.is_whitespace() || "\"'/:".contains(c))
+                    && name_end(after.chars().next())
+                    && value.as_ref().is_none_or(|v| {
+                        let rest = after.trim_start().strip_prefix('=').unwrap_or("");
+                        let rest = rest.trim_start().trim_start_matches(['"', '\'']);
+                        rest.trim_start().starts_with(&v.to_ascii_lowercase())
+                    })
+            })
+            .map(|(at, _)| {
+                // From the start of the name as written (`xlink:href` from `xlink`).
+                let start = lower[..at].rfind(|c: char| c.is_whitespace() || "\"'/".contains(c));
+                start.map_or(at, |s| s + 1)
+            })
+            .collect(),
+    };
+    match found[..] {
+        [at] => Some(at),
+        _ => None,
+    }
+}
+
+/// Where in the override files the text at byte `at` of `html` was written: the longest piece
+/// of the page around `at` (the template text just before the problem and the start of the
+/// problem itself, as far as they were written literally) found exactly once in exactly one
+/// file, as (file, line, column) of the place matching `at`. `None` when no piece of at least
+/// four characters is found, or it is found in several places.
+fn locate_in_sources(
+    html: &str,
+    at: usize,
+    sources: &[(String, String)],
+) -> Option<(String, usize, usize)> {
+    // Character boundaries up to 200 characters each side of `at`.
+    let back: Vec<usize> = std::iter::once(at)
+        .chain(html[..at].char_indices().rev().map(|(i, _)| i).take(200))
+        .collect();
+    let ahead: Vec<usize> = std::iter::once(at)
+        .chain(
+            html[at..]
+                .char_indices()
+                .skip(1)
+                .map(|(i, _)| at + i)
+                .chain(std::iter::once(html.len()))
+                .take(200),
+        )
+        .collect();
+    let mut best: Option<(usize, String, usize, usize)> = None;
+    let mut tied = false;
+    for (path, text) in sources {
+        let occurs = |b: usize, f: usize| text.contains(&html[back[b]..ahead[f]]);
+        // The windows found form a staircase (a shorter window of a found one is found):
+        // walk it once, the most text ahead for each amount of text before.
+        let mut f = ahead.len() - 1;
+        for b in 0..back.len() {
+            while f > 0 && !occurs(b, f) {
+                f -= 1;
+            }
+            if f == 0 && b > 0 && !occurs(b, 0) {
+                break;
+            }
+            let window = &html[back[b]..ahead[f]];
+            let chars = window.chars().count();
+            if chars < 4 || text.matches(window).count() != 1 {
+                continue;
+            }
+            let start = text.find(window).expect("found above") + (at - back[b]);
+            let line = text[..start].matches('\n').count() + 1;
+            let column = text[..start]
+                .rsplit('\n')
+                .next()
+                .unwrap_or("")
+                .chars()
+                .count()
+                + 1;
+            let here = (chars, path.clone(), line, column);
+            match &best {
+                Some(x) if x.0 > chars => {}
+                // As long, elsewhere: the text around the problem does not tell which.
+                Some(x) if x.0 == chars => tied |= *x != here,
+                _ => {
+                    tied = false;
+                    best = Some(here);
+                }
+            }
+        }
+    }
+    if tied {
+        return None;
+    }
+    best.map(|(_, path, line, column)| (path, line, column))
 }
 
 /// The first reference to an outside resource in CSS as a browser reads it, described: comments

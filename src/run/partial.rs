@@ -21,8 +21,15 @@ use cohortpress_metric_api::Scalar;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
-/// Version of the partial-result files; a file of another version is not reused.
-pub const FORMAT: u32 = 1;
+/// Version of the partial-result files; a file of another version is not reused (`run
+/// --incremental` recomputes the participant, `merge` refuses the shard).
+///
+/// - 1: a failed external module's own words (its error, its last line on standard error,
+///   paths, user and host names) could be in `failures` and in the reports the record lists.
+/// - 2: they are only logged ([`crate::modules::ModuleFailure::for_outputs`]); a record of
+///   version 1 is not reused, so `--incremental` never copies that text into
+///   `metrics/participants.json` or republishes the report that held it.
+pub const FORMAT: u32 = 2;
 /// Folder of the partial results inside an output folder.
 pub const CACHE_DIR: &str = "cache";
 

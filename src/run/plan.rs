@@ -334,20 +334,16 @@ pub fn run_key(
         Some(t) => {
             let dir = program.root.join(t);
             let mut h = blake3::Hasher::new();
-            // The files the template loader reads (`.hbs`, not through a link), and nothing
-            // else: a video or a backup kept beside the templates was read whole here, and one
-            // over the input size limit stopped the run (exit 3) that `check` had passed; a
-            // `report.templates: ..` read every file of the folders around the program.
-            for entry in walkdir::WalkDir::new(&dir).sort_by_file_name() {
-                let Ok(entry) = entry else { continue };
-                if entry.file_type().is_file()
-                    && entry.path().extension().is_some_and(|e| e == "hbs")
-                {
-                    let rel = entry.path().strip_prefix(&dir).unwrap_or(entry.path());
-                    h.update(rel.to_string_lossy().as_bytes());
-                    h.update(&[0]);
-                    h.update(blake3::hash(&read(entry.path())?).as_bytes());
-                }
+            // The files the template loader reads, and nothing else: a video or a backup kept
+            // beside the templates was read whole here, and one over the input size limit
+            // stopped the run (exit 3) that `check` had passed; a `report.templates: ..` or `/`
+            // read every `.hbs` file of the whole tree. A folder the loader refuses (a link)
+            // stops the run when the templates load.
+            let files = crate::report::templates::override_files(&dir).unwrap_or_default();
+            for (name, path) in files {
+                h.update(name.as_bytes());
+                h.update(&[0]);
+                h.update(blake3::hash(&read(&path)?).as_bytes());
             }
             h.finalize().to_hex().to_string()
         }

@@ -438,6 +438,42 @@ fn an_incremental_run_recomputes_only_what_changed_and_equals_a_full_run() {
     );
 }
 
+/// A partial result written before a failed external module's own words were kept out of the
+/// outputs (format 1) could hold them (a traceback with the user's home folder); reused by
+/// `--incremental`, they were copied into metrics/participants.json. A record of that format is
+/// recomputed.
+#[test]
+fn an_incremental_run_recomputes_a_record_of_the_older_format() {
+    let t = ProgramTest::demo(3);
+    let inc = out(&t, "inc");
+    assert_eq!(run(&t, &inc, &[]).code, 0);
+    let cache = Path::new(&inc).join("cache/SG-002.json");
+    let mut rec: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(&cache).unwrap()).unwrap();
+    // As the older version wrote it: format 1, the module's whole message.
+    rec["format"] = 1.into();
+    let failures = serde_json::json!([[
+        "ext-score",
+        "external module: reported an error: Traceback (most recent call last): File \"/home/ana/ana.example/score.py\""
+    ]]);
+    rec["failures"] = failures.clone();
+    rec["tidy"]["failures"] = failures;
+    std::fs::write(&cache, serde_json::to_vec_pretty(&rec).unwrap()).unwrap();
+    let r = run(&t, &inc, &["--incremental"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let metrics =
+        std::fs::read_to_string(Path::new(&inc).join("metrics/participants.json")).unwrap();
+    assert!(!metrics.contains("ana.example"), "{metrics}");
+    assert!(
+        r.stderr.contains("2 participants reused, 1 recomputed"),
+        "{}",
+        r.stderr
+    );
+    let rec: serde_json::Value = serde_json::from_slice(&std::fs::read(&cache).unwrap()).unwrap();
+    assert_eq!(rec["format"], 2);
+    assert_eq!(rec["failures"], serde_json::json!([]));
+}
+
 #[test]
 fn three_shards_merged_equal_a_single_run() {
     let t = ProgramTest::demo(12);

@@ -847,6 +847,97 @@ fn an_override_that_builds_code_or_outside_addresses_at_render_time_is_refused()
     );
 }
 
+/// A problem found in a rendered page named the template but no line: the page's text was
+/// all there was. It is located in the override files by the text around it (the template's
+/// literal text before it and its own first, literal, piece), when that text is found in one
+/// place only.
+#[test]
+fn a_problem_built_at_render_time_is_located_in_the_template() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::create_dir(dir.path().join("partials")).unwrap();
+    std::fs::write(dir.path().join("partials/tail.hbs"), "ipt>").unwrap();
+    let file = dir.path().join("participant.html.hbs");
+    let ctx =
+        serde_json::json!({"name": "Ana", "note": "x;background:url(https://t.example/p.gif)"});
+    for (template, at) in [
+        (
+            "<h1>{{name}}</h1>\n<p>Intro text.</p>\n  <scr{{!x}}ipt>alert(1)</scr{{!x}}ipt>\n",
+            Some("participant.html.hbs:3:3"),
+        ),
+        (
+            "<p>a</p>\n<p class=\"x\" o{{!}}nclick=\"x()\">x</p>",
+            Some("participant.html.hbs:2:14"),
+        ),
+        (
+            "<a href=\"#top\">top</a>\n<a class=\"y\" hr{{!x}}ef=\"javascript:alert(1)\">x</a>",
+            Some("participant.html.hbs:2:14"),
+        ),
+        // Built with a partial: at the start of the tag in the file that opens it.
+        (
+            "<p>one</p>\n<p>two</p><scr{{> tail}}1</script>",
+            Some("participant.html.hbs:2:11"),
+        ),
+        // Input text printed into CSS: at the attribute.
+        (
+            "<p>{{name}}</p>\n\n<p style=\"color:{{note}}\">{{name}}</p>",
+            Some("participant.html.hbs:3:4"),
+        ),
+        // Two of them on the page: which one cannot be told, so no place is named.
+        ("<scr{{!}}ipt>1</script>\n<scr{{!}}ipt>2</script>", None),
+    ] {
+        std::fs::write(&file, template).unwrap();
+        let set = TemplateSet::with_overrides(Some(dir.path())).unwrap();
+        let err = match set.render("participant.html", &ctx, serde_json::Map::new()) {
+            Ok(html) => panic!("rendered {template} as {html}"),
+            Err(e) => e.to_string(),
+        };
+        match at {
+            Some(at) => {
+                assert!(
+                    err.contains(&format!("; it starts at {}", dir.path().join(at).display())),
+                    "{template}: {err}"
+                )
+            }
+            None => assert!(!err.contains("it starts at"), "{template}: {err}"),
+        }
+    }
+}
+
+/// The same in a whole dumped template, through the binary: the run stops (exit 6) naming the
+/// line and column where the problem was built.
+#[test]
+fn a_problem_built_in_a_dumped_template_is_named_with_its_line() {
+    let prog = ProgramTest::fixture("report-small");
+    let dump = prog.run(&["templates", "dump", "{dir}/templates"]);
+    assert_eq!(dump.code, 0, "{}", dump.stderr);
+    let path = prog.dir.join("templates/participant.html.hbs");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let (i, line) = text
+        .lines()
+        .enumerate()
+        .find(|(_, l)| l.contains("<main"))
+        .expect("the template has a <main>");
+    let column = line.find("<main").unwrap() + 1;
+    std::fs::write(
+        &path,
+        text.replacen("<main", "<scr{{!}}ipt>x</script><main", 1),
+    )
+    .unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 6, "{}", out.stderr);
+    assert!(out.stderr.contains("`<script>`"), "{}", out.stderr);
+    assert!(
+        out.stderr.contains(&format!(
+            "templates/participant.html.hbs:{}:{column}",
+            i + 1
+        )),
+        "line {}: {}",
+        i + 1,
+        out.stderr
+    );
+}
+
 #[test]
 fn a_misspelt_field_in_an_override_fails_the_run_naming_template_and_line() {
     let prog = ProgramTest::fixture("report-small");
@@ -905,6 +996,35 @@ fn a_large_file_beside_the_templates_is_not_read() {
     assert_eq!(out.code, 0, "{}", out.stderr);
     let html = std::fs::read_to_string(prog.dir.join("reports/participants/SG-003.html")).unwrap();
     assert!(html.contains("OVERRIDE-MARKER-7732"));
+}
+
+/// The run's fingerprint hashed every `.hbs` file under the template folder, however deep
+/// (`report.templates: /` read the whole disk's): one over the input limit in a folder the
+/// loader does not read stopped the run with exit 3. It hashes what the loader reads.
+#[test]
+fn a_template_file_below_the_template_folders_is_not_read() {
+    let prog = ProgramTest::fixture("report-small");
+    std::fs::create_dir_all(prog.dir.join("templates/archive/2025")).unwrap();
+    std::fs::write(
+        prog.dir.join("templates/participant.html.hbs"),
+        BUILTIN
+            .iter()
+            .find(|(n, _)| *n == "participant.html.hbs")
+            .unwrap()
+            .1
+            .replace("<main>", "<main><p>OVERRIDE-MARKER-7733</p>"),
+    )
+    .unwrap();
+    // Sparse: 70 MiB long, nothing written.
+    std::fs::File::create(prog.dir.join("templates/archive/2025/participant.html.hbs"))
+        .unwrap()
+        .set_len(70 * 1024 * 1024)
+        .unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let html = std::fs::read_to_string(prog.dir.join("reports/participants/SG-003.html")).unwrap();
+    assert!(html.contains("OVERRIDE-MARKER-7733"));
 }
 
 #[test]
@@ -979,6 +1099,48 @@ fn a_symlink_in_the_template_folder_is_refused() {
         .to_string();
     assert!(err.contains("symbolic links are not allowed"), "{err}");
     assert!(err.contains("participant.html.hbs"), "{err}");
+}
+
+/// `report.templates: /` (or `..`) walked the whole tree under it and compiled every `.hbs`
+/// file found there. Only the folder's own `.hbs` files and those of its `partials/` folder
+/// (the layout `templates dump` writes) are read: files and links deeper down are not.
+#[cfg(unix)]
+#[test]
+fn only_the_template_folder_and_its_partials_are_read() {
+    let dir = tempfile::tempdir().unwrap();
+    let t = dir.path();
+    std::fs::create_dir_all(t.join("partials/old")).unwrap();
+    std::fs::create_dir_all(t.join("program/participants/P-1")).unwrap();
+    std::fs::write(t.join("partials/kv.hbs"), "<p>own kv partial</p>").unwrap();
+    // Each of these failed the load (a refused element, a link) when the whole tree was read.
+    std::fs::write(t.join("partials/old/kv.hbs"), "<script>old</script>").unwrap();
+    std::fs::write(t.join("program/notes.hbs"), "<script>x</script>").unwrap();
+    std::os::unix::fs::symlink("/etc/hostname", t.join("program/participants/P-1/a.hbs")).unwrap();
+    let set = TemplateSet::with_overrides(Some(t)).unwrap();
+    let read: Vec<&str> = set
+        .sources
+        .iter()
+        .filter(|(_, src)| src != "built-in")
+        .map(|(name, _)| name.as_str())
+        .collect();
+    assert_eq!(read, ["partials/kv.hbs"]);
+    // A link where a template is read is still refused, at the top and in partials/.
+    std::os::unix::fs::symlink("/etc/hostname", t.join("partials/table.hbs")).unwrap();
+    let err = TemplateSet::with_overrides(Some(t))
+        .err()
+        .expect("link refused")
+        .to_string();
+    assert!(err.contains("symbolic links are not allowed"), "{err}");
+    assert!(err.contains("partials/table.hbs"), "{err}");
+    std::fs::remove_file(t.join("partials/table.hbs")).unwrap();
+    let moved = dir.path().join("program/p");
+    std::fs::rename(t.join("partials"), &moved).unwrap();
+    std::os::unix::fs::symlink(&moved, t.join("partials")).unwrap();
+    let err = TemplateSet::with_overrides(Some(t))
+        .err()
+        .expect("link refused")
+        .to_string();
+    assert!(err.contains("symbolic links are not allowed"), "{err}");
 }
 
 #[test]
