@@ -447,7 +447,7 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
     } else if let Some(rest) = msg.strip_prefix("missing field `") {
         let key = rest.split('`').next().unwrap_or_default();
         d = d
-            .expected(format!("a `{key}:` key"))
+            .expected(format!("the key `{key}:`"))
             .hint(format!("add `{key}:` with a value"));
     } else if let Some(rest) = msg.strip_prefix("invalid type: ") {
         if let Some((found, exp)) = rest.split_once(", expected ") {
