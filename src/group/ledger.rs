@@ -294,6 +294,13 @@ impl Ledger {
         self.new
     }
 
+    /// Whether a release of `program` for the period `from` to `to` (ISO dates) is recorded.
+    pub fn has_release(&self, program: &str, from: &str, to: &str) -> bool {
+        self.releases
+            .iter()
+            .any(|r| r.program == program && r.period_from == from && r.period_to == to)
+    }
+
     /// The ledger's folder.
     pub fn dir(&self) -> &Path {
         &self.dir

@@ -25,6 +25,7 @@ use crate::tidy;
 use cohortpress_metric_api::ParticipantData;
 use cohortpress_metric_trend::view::Status;
 use rayon::prelude::*;
+use std::path::Path;
 use std::sync::Mutex;
 use std::time::Instant;
 
@@ -353,6 +354,24 @@ pub fn finish(
                 plan.out_dir.display()
             );
         }
+        // A ledger that does not hold the release of the group report already in the output
+        // folder: an older copy of the ledger (restored from another backup than the output),
+        // another copy of it, or one emptied by hand. That report is not audited against, as
+        // with a new ledger, and was silent.
+        if !ledger.is_new()
+            && let Some((from, to)) = published_period(&plan.out_dir, &plan.program.info.id)
+            && !ledger.has_release(&plan.program.info.id, &from, &to)
+        {
+            tracing::warn!(
+                "group-report ledger {}: {} holds a group report of this program for {from} to \
+                 {to}, which the ledger does not record (an older or another copy of the \
+                 ledger?), so this group report is not audited against it; if that report's \
+                 ledger is elsewhere, name it with --state (or report.state_dir), or a \
+                 difference of two reports may give away a small group's figures",
+                ledger.dir().display(),
+                plan.out_dir.display()
+            );
+        }
         if ledger.is_new() && plan.out_named_by == "--out" {
             tracing::warn!(
                 "group-report ledger {}: a new ledger, so this group report is audited against \
@@ -441,6 +460,27 @@ pub fn finish(
     timing.commit_s = phase.elapsed().as_secs_f64();
     tracing::debug!("{} output files", outputs.files);
     Ok((summary, timing))
+}
+
+/// The period (`period_from`, `period_to`) of the complete output of program `program_id` in
+/// `out_dir` when it holds a group report, from its `manifest.json` (read like an input).
+fn published_period(out_dir: &Path, program_id: &str) -> Option<(String, String)> {
+    if !out_dir.join("group").is_dir() {
+        return None;
+    }
+    let bytes = crate::limits::read_input(&out_dir.join("manifest.json")).ok()?;
+    let m: serde_json::Value = serde_json::from_slice(&bytes).ok()?;
+    let ours = m["tool"]
+        .as_str()
+        .is_some_and(|t| t.starts_with("cohortpress "))
+        && m["program_id"].as_str() == Some(program_id)
+        && m["scope"].as_str() == Some("complete");
+    ours.then(|| {
+        Some((
+            m["period_from"].as_str()?.to_string(),
+            m["period_to"].as_str()?.to_string(),
+        ))
+    })?
 }
 
 /// `--incremental`: the participant's previous record and reports, copied into staging, when
