@@ -82,6 +82,9 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     let (dirs, discovery) = select_participants(plan)?;
     let templates = report::templates::TemplateSet::load(&plan.program)
         .map_err(|e| RunError::Render(e.to_string()))?;
+    if plan.shard.is_none() {
+        check_ledger_folder(plan)?;
+    }
     let staging = plan.begin_staging()?;
     tracing::info!(
         "program {}: {} participants{}, period {} to {}, as of {}",
@@ -306,6 +309,16 @@ fn tally(
     }
     inputs.sort_by(|a, b| a.path.cmp(&b.path));
     (summary, all_diags, rows, inputs)
+}
+
+/// Refuses, before any participant is computed, a ledger folder the group step could not open
+/// (see [`group::ledger::Ledger::check_folder`]); `Ok` when the run writes no group report.
+pub fn check_ledger_folder(plan: &RunPlan) -> Result<(), RunError> {
+    if !plan.only.is_empty() {
+        return Ok(());
+    }
+    group::ledger::Ledger::check_folder(&plan.state_dir)
+        .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))
 }
 
 /// The group step, group reports, tidy metrics and manifest from every participant's record

@@ -222,6 +222,7 @@ pub fn merge_shards(opts: &MergeOptions) -> Result<(RunSummary, usize, PathBuf),
 }
 
 fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSummary, RunError> {
+    execute::check_ledger_folder(plan)?;
     let staging = plan.begin_staging()?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();

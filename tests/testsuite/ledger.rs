@@ -442,6 +442,57 @@ fn a_ledger_that_does_not_record_the_outputs_group_report_is_warned_about() {
     );
 }
 
+/// `--state` naming a file (a typo, the program file) or a folder of someone else's: every
+/// participant was computed first, and the run then failed with "File exists (os error 17)".
+/// Now the run is refused when it starts, saying what is wrong (exit 6 as before).
+#[test]
+fn a_ledger_folder_that_cannot_be_used_stops_the_run_before_anything_is_computed() {
+    let t = ProgramTest::fixture("report-small");
+    let file = t.dir.join("program.yaml");
+    let before = std::fs::read(&file).unwrap();
+    let run = |state: &str| {
+        t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--state",
+            state,
+        ])
+    };
+    let o = run(&file.to_string_lossy());
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr.contains(
+            "program.yaml: is a regular file, not a folder; the ledger needs a folder of its own"
+        ),
+        "{}",
+        o.stderr
+    );
+    // Refused before the participants: the line that starts them is not logged.
+    assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+    assert_eq!(std::fs::read(&file).unwrap(), before);
+    assert!(!t.dir.join("reports").exists());
+    // A ledger.json that does not read (cut short when a disk filled) is found then too.
+    let cut = t.dir.parent().unwrap().join("cut");
+    std::fs::create_dir(&cut).unwrap();
+    std::fs::write(
+        cut.join("ledger.json"),
+        "{\"format\":1,\"releases\":[{\"pro",
+    )
+    .unwrap();
+    let o = run(&cut.to_string_lossy());
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr.contains("ledger.json: EOF while parsing"),
+        "{}",
+        o.stderr
+    );
+    assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+}
+
 #[test]
 fn the_ledger_needs_a_folder_of_its_own() {
     let t = ProgramTest::fixture("report-small");
