@@ -447,21 +447,11 @@ pub fn run_check_with(
             report.program = Err(vec![Diagnostic::error("program.yaml", m)]);
             report.participants.clear();
             report.discovery.clear();
-        } else if prog.def.report.templates.is_some()
-            && let Err(e) = crate::report::templates::TemplateSet::load(prog)
-        {
+        } else if let Err(d) = crate::report::templates::load_checked(prog) {
             // The report templates of the program's own (`report.templates`) are loaded as a
             // run loads them before it starts: a template that does not parse, a partial loop,
-            // a link or code in a template stopped every run (exit 6) of a program `check`
-            // had passed.
-            report.program = Err(vec![
-                Diagnostic::error(
-                    "program.yaml",
-                    format!("a report template of report.templates cannot be used: {e}"),
-                )
-                .field("report.templates")
-                .hint("correct the template named; a run stops before it writes anything while it cannot be used"),
-            ]);
+            // a link or code in a template stopped every run of a program `check` had passed.
+            report.program = Err(vec![d]);
             report.participants.clear();
             report.discovery.clear();
         }

@@ -80,8 +80,11 @@ pub fn select_participants(
 /// outputs.
 pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     let (dirs, discovery) = select_participants(plan)?;
-    let templates = report::templates::TemplateSet::load(&plan.program)
-        .map_err(|e| RunError::Render(e.to_string()))?;
+    let templates =
+        crate::report::templates::load_checked(&plan.program).map_err(|d| RunError::Invalid {
+            by: super::Blame::Program,
+            diagnostics: vec![d],
+        })?;
     if plan.shard.is_none() {
         check_ledger_folder(plan)?;
     }

@@ -270,8 +270,11 @@ fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSu
         .iter()
         .map(DiagRecord::to_diagnostic)
         .collect();
-    let templates = crate::report::templates::TemplateSet::load(&plan.program)
-        .map_err(|e| RunError::Render(e.to_string()))?;
+    let templates =
+        crate::report::templates::load_checked(&plan.program).map_err(|d| RunError::Invalid {
+            by: super::Blame::Program,
+            diagnostics: vec![d],
+        })?;
     let columns = columns
         .into_inner()
         .expect("no panics while holding the lock");
