@@ -575,3 +575,34 @@ fn an_output_folder_that_is_a_mount_point_is_refused_before_anything_is_done() {
     assert_eq!(o.code, 0, "{o:?}");
     assert!(inside.join("group/program.html").is_file());
 }
+
+/// `~` that no shell expanded: `--out "~/reports"` quoted in a cron line, or `out: ~/reports`
+/// in program.yaml. The reports went into a folder named `~` in the working (or program)
+/// folder, with no word; a later `rm -r ~` to tidy it up is the user's home folder.
+#[test]
+fn a_path_starting_with_a_tilde_is_refused_not_made_into_a_folder_named_tilde() {
+    let t = ProgramTest::fixture("report-small");
+    for (option, code) in [("--out", 2), ("--state", 2)] {
+        let o = t.run(&["run", "{dir}", "--as-of", AS_OF, option, "~/reports"]);
+        assert_eq!(o.code, code, "{option}: {o:?}");
+        assert!(
+            o.stderr
+                .contains(&format!("{option} ~/reports: the path starts with `~`")),
+            "{}",
+            o.stderr
+        );
+        assert!(!t.dir.join("~").exists());
+    }
+    let yaml = t.dir.join("program.yaml");
+    let text = fs::read_to_string(&yaml).unwrap();
+    fs::write(&yaml, text.replace("  out: reports", "  out: ~/reports")).unwrap();
+    for command in ["run", "check"] {
+        let o = t.run(&[command, "{dir}", "--as-of", AS_OF]);
+        assert_eq!(o.code, 3, "{command}: {o:?}");
+        assert!(
+            format!("{}{}", o.stdout, o.stderr).contains("the path starts with `~`"),
+            "{command}: {o:?}"
+        );
+        assert!(!t.dir.join("~").exists());
+    }
+}
