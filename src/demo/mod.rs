@@ -273,8 +273,8 @@ fn participant_files(
 /// write there, or that was changed since: a folder or file added (a real participant put into
 /// the demo program, notes), a file edited, a link. Up to five such paths (relative to the
 /// program folder, as `participants/…`) and how many there are in all; `None` when everything
-/// in it is the generator's, byte for byte (files it wrote and that were deleted since are
-/// not missed: nothing is lost by writing them again).
+/// in it is the generator's, byte for byte (files it wrote and that were deleted since, or
+/// that a stopped run left cut short, are not missed: nothing is lost by writing them again).
 fn not_generated(
     participants: &Path,
     opts: &DemoOptions,
@@ -329,10 +329,13 @@ fn not_generated(
                 files.sort_by_key(fs::DirEntry::file_name);
                 for f in files {
                     let fname = f.file_name().to_string_lossy().into_owned();
+                    // The generator's bytes, or their start: a file a stopped run (Ctrl-C, a
+                    // full disk) left cut short holds nothing that writing it again loses.
                     let same = f.file_type()?.is_file()
                         && expected.iter().any(|(n, bytes)| {
                             *n == fname
-                                && crate::limits::read_input(&f.path()).is_ok_and(|b| b == *bytes)
+                                && crate::limits::read_input(&f.path())
+                                    .is_ok_and(|b| bytes.starts_with(&b))
                         });
                     if !same {
                         odd.push(format!("{rel}/{fname}"));

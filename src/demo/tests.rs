@@ -707,8 +707,12 @@ fn regenerating_never_deletes_what_was_added_to_or_changed_in_the_participants()
     let msg = generate(&root, &opts).unwrap_err().to_string();
     assert!(msg.contains("(`participants/SG-002/weights.csv`)"), "{msg}");
 
-    // Files of the generator that were deleted lose nothing: written again.
+    // Files of the generator that were deleted, or cut short by a stopped run, lose nothing:
+    // written again.
     fs::remove_file(&weights).unwrap();
+    let intake = parts.join("SG-003/intake.csv");
+    let cut = fs::read(&intake).unwrap();
+    fs::write(&intake, &cut[..cut.len() / 2]).unwrap();
     fs::remove_dir_all(parts.join("SG-004")).unwrap();
     let s = generate(&root, &opts).unwrap();
     assert_eq!(s.participants, 6);
