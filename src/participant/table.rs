@@ -1188,37 +1188,31 @@ fn read_records(
             repeated_headers.get_or_insert(line);
             continue;
         }
-        // The header again with its columns in another order (exports of two versions of an
-        // app, joined): the rows below it were read under the first header's columns, so an
+        // The header again with its columns in another order, or some of them (exports of two
+        // versions of an app, joined): the rows below it were read under the first header's
+        // columns, so an
         // intake file's `kcal` took its `protein_g` (90 kcal a day) with only an "unreadable
         // date" warning about the header line. Which rows follow which header cannot be told
         // from the rows alone: the file is refused, located there.
-        if rec.len() >= written.len()
-            && rec.iter().skip(written.len()).all(|f| f.trim().is_empty())
-            && {
-                let mut here: Vec<&str> = rec.iter().take(written.len()).map(str::trim).collect();
-                let mut first: Vec<&str> = written.iter().map(|h| h.as_str()).collect();
-                here.sort_unstable();
-                first.sort_unstable();
-                here == first
-            }
-        {
+        let cells: Vec<&str> = rec
+            .iter()
+            .map(str::trim)
+            .filter(|f| !f.is_empty())
+            .collect();
+        if cells.len() >= 2 && cells.iter().all(|f| written.iter().any(|h| h == f)) {
             let header_text = |fields: Vec<&str>| fields.join(&delim_text);
             diags.append(&mut extra);
             diags.push(
                 ctx.error(format!(
-                    "the header is repeated on line {line} with its columns in another order; the rows below it cannot be read under the first header's columns, and the file is not used"
+                    "the header is repeated on line {line} with other columns or in another order; the rows below it cannot be read under the first header's columns, and the file is not used"
                 ))
                 .at(line, Some(1))
                 .expected(format!(
                     "the header as on line {header_line}: `{}`",
                     header_text(written.iter().map(|h| h.as_str()).collect())
                 ))
-                .found(format!(
-                    "`{}`",
-                    header_text(rec.iter().take(written.len()).map(str::trim).collect())
-                ))
-                .hint("the file joins exports with the columns in two orders: split it into two files, or put the columns of the second part in the first part's order"),
+                .found(format!("`{}`", header_text(cells)))
+                .hint("the file joins exports with different columns: split it into two files, or give the second part the first part's columns in its order"),
             );
             return None;
         }
@@ -2522,14 +2516,21 @@ mod tests {
         assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)));
         assert_eq!(
             d[0].message,
-            "the header is repeated on line 3 with its columns in another order; the rows below \
-             it cannot be read under the first header's columns, and the file is not used"
+            "the header is repeated on line 3 with other columns or in another order; the rows \
+             below it cannot be read under the first header's columns, and the file is not used"
         );
         assert_eq!(
             d[0].expected.as_deref(),
             Some("the header as on line 1: `date,weight,unit,source`")
         );
         assert_eq!(d[0].found.as_deref(), Some("`date,unit,source,weight`"));
+        // Some of its columns only: `date,kcal,protein_g` then `date,protein_g` read the
+        // protein as kcal.
+        let fewer = "date,weight,unit,source\n2026-05-01,72.5,kg,home\n\
+                     date,unit,weight\n2026-05-02,kg,72.3\n";
+        let (t, d) = read(fewer, &CsvOptions::default());
+        assert!(t.is_none());
+        assert_eq!(d[0].found.as_deref(), Some("`date,unit,weight`"), "{d:#?}");
         // In the same order it is the header again, not a problem.
         let same = "date,weight,unit\n2026-05-01,72.5,kg\ndate,weight,unit\n2026-05-02,72.3,kg\n";
         let (t, d) = read(same, &CsvOptions::default());
