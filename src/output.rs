@@ -352,6 +352,54 @@ fn unlisted_files(dir: &Path, manifest: &serde_json::Value) -> Option<String> {
     })
 }
 
+/// Whether the folder `dir` (links resolved) is a mount point: another file system is mounted
+/// there (a USB stick, a network share, a container's volume), or a folder is bind-mounted
+/// there. Neither can be renamed (`EBUSY`), and the swap renames the output folder.
+fn is_mount_point(dir: &Path) -> bool {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        if let (Ok(m), Some(Ok(p))) = (fs::metadata(dir), dir.parent().map(fs::metadata))
+            && m.dev() != p.dev()
+        {
+            return true;
+        }
+    }
+    // A bind mount of a folder of the same file system: only the mount table tells.
+    fs::read_to_string("/proc/self/mountinfo").is_ok_and(|table| listed_in_mountinfo(&table, dir))
+}
+
+/// Whether `/proc/self/mountinfo` text lists `dir` as a mount point (its fifth field, with
+/// space, tab, newline and backslash written as octal escapes, `\040`).
+fn listed_in_mountinfo(table: &str, dir: &Path) -> bool {
+    let unescape = |field: &str| -> Vec<u8> {
+        let b = field.as_bytes();
+        let mut out = Vec::with_capacity(b.len());
+        let mut i = 0;
+        while i < b.len() {
+            let octal = b
+                .get(i + 1..i + 4)
+                .filter(|d| b[i] == b'\\' && d.iter().all(|c| (b'0'..=b'7').contains(c)));
+            match octal {
+                Some(d) => {
+                    out.push((d[0] - b'0') * 64 + (d[1] - b'0') * 8 + (d[2] - b'0'));
+                    i += 4;
+                }
+                None => {
+                    out.push(b[i]);
+                    i += 1;
+                }
+            }
+        }
+        out
+    };
+    let want = dir.as_os_str().as_encoded_bytes();
+    table
+        .lines()
+        .filter_map(|l| l.split(' ').nth(4))
+        .any(|mp| unescape(mp) == want)
+}
+
 /// Whether `dir` is a real folder (not a link) that is empty or holds one of our outputs: the
 /// only kind of leftover `.NAME.previous` a run moves or removes.
 fn is_our_folder(dir: &Path) -> bool {
@@ -467,6 +515,17 @@ fn check_replaceable(out_dir: &Path, target: &OutputTarget) -> Result<(), Stagin
                 "refusing to write the output to {} ({}): it is a file, not a folder",
                 out_dir.display(),
                 target.named_by
+            )));
+        }
+        Ok(_) if is_mount_point(out_dir) => {
+            return Err(StagingError::Refused(format!(
+                "refusing to write the output to {} ({}): it is a mount point (a disk, share or \
+                 volume mounted there), and a run puts its output in place by renaming the \
+                 folder, which a mount point cannot be (every run would compute everything and \
+                 then fail); name a folder inside it, e.g. {}",
+                out_dir.display(),
+                target.named_by,
+                out_dir.join("reports").display()
             )));
         }
         Ok(_) => match existing_output(out_dir) {
@@ -936,6 +995,25 @@ pub fn write_new_file(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A bind mount of a folder of the same file system shows only in the mount table, whose
+    /// mount points write a space, tab or backslash as an octal escape.
+    #[test]
+    fn the_mount_table_names_mount_points_with_their_escapes() {
+        let table = "22 1 8:1 / / rw,relatime shared:1 - ext4 /dev/sda1 rw\n\
+                     95 22 8:1 /srv/out /data/monthly\\040reports rw - ext4 /dev/sda1 rw\n\
+                     96 22 0:52 / /media/usb\\134x rw - vfat /dev/sdb1 rw\n";
+        let listed = |p: &str| listed_in_mountinfo(table, Path::new(p));
+        assert!(listed("/data/monthly reports"));
+        assert!(listed("/media/usb\\x"));
+        assert!(listed("/"));
+        assert!(!listed("/data/monthly\\040reports"));
+        assert!(!listed("/data/monthly"));
+        assert!(
+            !listed("/srv/out"),
+            "the source of a bind mount is not a mount point"
+        );
+    }
 
     /// Clears the immutable flag on drop, so the test folder can be removed whatever happens.
     struct Immutable(PathBuf);

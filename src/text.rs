@@ -21,6 +21,35 @@ pub fn is_invisible_control(c: char) -> bool {
         || (c.is_control() && !matches!(c, '\t' | '\n' | '\r'))
 }
 
+/// Whether `c` is a default-ignorable code point: one a text shows as nothing unless a font
+/// or a script gives it a use (soft hyphen, zero-width space and joiners, word joiner,
+/// variation selectors, the Hangul fillers, tags …). The ranges of the
+/// `Default_Ignorable_Code_Point` property (Unicode, DerivedCoreProperties.txt; from memory).
+pub fn is_default_ignorable(c: char) -> bool {
+    matches!(c,
+        '\u{00ad}' | '\u{034f}' | '\u{061c}' | '\u{115f}'..='\u{1160}' | '\u{17b4}'..='\u{17b5}'
+        | '\u{180b}'..='\u{180f}' | '\u{200b}'..='\u{200f}' | '\u{202a}'..='\u{202e}'
+        | '\u{2060}'..='\u{206f}' | '\u{3164}' | '\u{fe00}'..='\u{fe0f}' | '\u{feff}'
+        | '\u{ffa0}' | '\u{fff0}'..='\u{fff8}' | '\u{1bca0}'..='\u{1bca3}'
+        | '\u{1d173}'..='\u{1d17a}' | '\u{e0000}'..='\u{e0fff}')
+}
+
+/// The form in which two texts from inputs that a reader cannot tell apart compare equal:
+/// compatibility-composed (NFKC: `Ｋｉｌｎ` and `Kiln`, a precomposed `í` and `i` plus a
+/// combining accent), default-ignorable code points dropped ([`is_default_ignorable`]: a
+/// zero-width space pasted from a web page), lower case, white space collapsed to one space and
+/// trimmed. This is Unicode's comparison of identifiers, NFKC_Casefold (UAX #31, UAX #44; from
+/// memory), with lower-casing for case folding.
+pub fn fold_for_comparison(s: &str) -> String {
+    use unicode_normalization::UnicodeNormalization;
+    let kept: String = s
+        .nfkc()
+        .filter(|&c| !is_default_ignorable(c))
+        .collect::<String>()
+        .to_lowercase();
+    kept.split_whitespace().collect::<Vec<_>>().join(" ")
+}
+
 /// Text from inputs made safe to show: every [`is_invisible_control`] character is dropped (a
 /// participant's name can then no longer reorder the text around it, nor hide part of itself),
 /// the other characters are kept as written. The one function the HTML escaping, the SVG charts

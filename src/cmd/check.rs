@@ -447,6 +447,13 @@ pub fn run_check_with(
             report.program = Err(vec![Diagnostic::error("program.yaml", m)]);
             report.participants.clear();
             report.discovery.clear();
+        } else if let Err(d) = crate::report::templates::load_checked(prog) {
+            // The report templates of the program's own (`report.templates`) are loaded as a
+            // run loads them before it starts: a template that does not parse, a partial loop,
+            // a link or code in a template stopped every run of a program `check` had passed.
+            report.program = Err(vec![d]);
+            report.participants.clear();
+            report.discovery.clear();
         }
     }
     match write_report_with(&report, opts, out) {
@@ -662,6 +669,50 @@ mod tests {
         assert_eq!(e["file"], "participants/P00/intake.csv");
         assert_eq!(e["line"], 1);
         assert_eq!(lines.iter().filter(|v| v["severity"] == "note").count(), 30);
+    }
+
+    /// A template of the program's own that cannot be loaded stopped every run (exit 6, "rendering
+    /// failed") while `check` said "program … ok" and exited 0: the templates are now loaded as
+    /// the run loads them.
+    #[test]
+    fn a_template_the_run_cannot_load_is_an_error_of_check() {
+        let tmp = program_dir();
+        add(tmp.path(), "P1", &[("profile.yaml", &profile("P1"))]);
+        let yaml = tmp.path().join("program.yaml");
+        let mut text = fs::read_to_string(&yaml).unwrap();
+        text.push_str("report: { templates: templates }\n");
+        fs::write(&yaml, text).unwrap();
+        let t = tmp.path().join("templates");
+        fs::create_dir(&t).unwrap();
+        // A dumped template, edited: clean, then with an unclosed block, then with a script.
+        fs::write(
+            t.join("participant.html.hbs"),
+            "<p>{{participant.id}}</p>\n",
+        )
+        .unwrap();
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::SUCCESS, "{out}");
+        fs::write(
+            t.join("participant.html.hbs"),
+            "<p>\n{{#if participant.id}}open\n",
+        )
+        .unwrap();
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::PROGRAM_INVALID, "{out}");
+        assert!(
+            out.contains("a report template of report.templates cannot be used"),
+            "{out}"
+        );
+        assert!(out.contains("participant.html.hbs"), "{out}");
+        fs::write(
+            t.join("participant.html.hbs"),
+            "<p>x</p>\n<script>1</script>\n",
+        )
+        .unwrap();
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::PROGRAM_INVALID, "{out}");
+        assert!(out.contains("participant.html.hbs:2:1:"), "{out}");
+        assert!(out.contains("`<script>`"), "{out}");
     }
 
     #[test]

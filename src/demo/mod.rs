@@ -68,7 +68,9 @@ pub const MAX_DEMO_PARTICIPANTS: usize = 100_000;
 /// `out` may be missing, empty, or a previous demo program (its program.yaml starts with
 /// [`write::MARKER`]); in the last case its `participants/` folder is replaced and every other
 /// file (a README, templates, reports) is left alone. Any other non-empty folder is refused with
-/// [`io::ErrorKind::AlreadyExists`], so the generator can never overwrite a real program.
+/// [`io::ErrorKind::AlreadyExists`], so the generator can never overwrite a real program; so is
+/// a demo whose `participants/` holds anything the generator did not write there as it is
+/// (a participant folder added, a file edited, a link).
 ///
 /// # Errors
 /// `InvalidInput` for zero participants or more than [`MAX_DEMO_PARTICIPANTS`], `AlreadyExists`
@@ -153,10 +155,9 @@ fn prepare_folder(out: &Path) -> io::Result<()> {
             let opts = options_from_marker(text.lines().next()?)?;
             let mut fresh = Vec::new();
             write::program_yaml(&mut fresh, &Scenario::steady_ground(), &opts);
-            Some(fresh == text.as_bytes())
-        })
-        .unwrap_or(false);
-    if !ours {
+            (fresh == text.as_bytes()).then_some(opts)
+        });
+    let Some(previous) = ours else {
         return Err(io::Error::new(
             io::ErrorKind::AlreadyExists,
             format!(
@@ -166,9 +167,34 @@ fn prepare_folder(out: &Path) -> io::Result<()> {
                 out.display()
             ),
         ));
-    }
+    };
+    // The participants/ folder is replaced as a whole, so it must hold only what the generator
+    // wrote there: an unedited program.yaml says nothing of the folders beside it (real
+    // participants put into the demo program, an edited weigh-in were deleted without a word).
     let old = out.join("participants");
-    if old.exists() {
+    if let Some((paths, count)) = not_generated(&old, &previous)? {
+        let more = if count > paths.len() {
+            format!(" and {} more", count - paths.len())
+        } else {
+            String::new()
+        };
+        return Err(io::Error::new(
+            io::ErrorKind::AlreadyExists,
+            format!(
+                "refusing to write into `{}`: it is a demo program, but its participants/ \
+                 folder holds what the generator did not write there or what was changed since \
+                 ({}{more}), and writing the demo again replaces the folder as a whole; hint: \
+                 move them out, or choose a new or empty folder",
+                out.display(),
+                paths
+                    .iter()
+                    .map(|p| format!("`{}`", crate::diag::printable(p)))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        ));
+    }
+    if fs::symlink_metadata(&old).is_ok() {
         fs::remove_dir_all(old)?;
     }
     Ok(())
@@ -200,9 +226,29 @@ fn write_participant(
     seed: u64,
     buf: &mut Vec<u8>,
 ) -> io::Result<(usize, u64)> {
-    let p = sim::simulate(plan, scenario, seed);
     let dir = root.join(&plan.id);
     fs::create_dir(&dir)?;
+    let mut count = 0;
+    let mut bytes = 0;
+    participant_files(plan, scenario, seed, buf, |name, content| {
+        fs::write(dir.join(name), content)?;
+        count += 1;
+        bytes += content.len() as u64;
+        Ok(())
+    })?;
+    Ok((count, bytes))
+}
+
+/// Simulates one participant and hands each file of its folder (name, bytes) to `file`, in
+/// the order they are written; `buf` is reused for every file.
+fn participant_files(
+    plan: &Plan,
+    scenario: &Scenario,
+    seed: u64,
+    buf: &mut Vec<u8>,
+    mut file: impl FnMut(&str, &[u8]) -> io::Result<()>,
+) -> io::Result<()> {
+    let p = sim::simulate(plan, scenario, seed);
     type Writer = fn(&mut Vec<u8>, &sim::Simulated);
     let files: [(&str, Writer, bool); 6] = [
         ("profile.yaml", write::profile_yaml, true),
@@ -212,17 +258,93 @@ fn write_participant(
         ("sessions.csv", write::sessions_csv, !p.sessions.is_empty()),
         ("labs.csv", write::labs_csv, !p.labs.is_empty()),
     ];
-    let mut count = 0;
-    let mut bytes = 0;
     for (name, writer, wanted) in files {
         if !wanted {
             continue;
         }
         buf.clear();
         writer(buf, &p);
-        fs::write(dir.join(name), &buf[..])?;
-        count += 1;
-        bytes += buf.len() as u64;
+        file(name, &buf[..])?;
     }
-    Ok((count, bytes))
+    Ok(())
+}
+
+/// What `participants/` of a previous demo written with `opts` holds that the generator did not
+/// write there, or that was changed since: a folder or file added (a real participant put into
+/// the demo program, notes), a file edited, a link. Up to five such paths (relative to the
+/// program folder, as `participants/…`) and how many there are in all; `None` when everything
+/// in it is the generator's, byte for byte (files it wrote and that were deleted since, or
+/// that a stopped run left cut short, are not missed: nothing is lost by writing them again).
+fn not_generated(
+    participants: &Path,
+    opts: &DemoOptions,
+) -> io::Result<Option<(Vec<String>, usize)>> {
+    let meta = match fs::symlink_metadata(participants) {
+        Ok(m) => m,
+        Err(e) if e.kind() == io::ErrorKind::NotFound => return Ok(None),
+        Err(e) => return Err(e),
+    };
+    if !meta.is_dir() {
+        return Ok(Some((vec!["participants".to_string()], 1)));
+    }
+    let scenario = Scenario::steady_ground();
+    let plans = sim::plan_cohort(opts.participants, opts.seed, opts.with_defects);
+    let by_id: std::collections::HashMap<&str, &Plan> =
+        plans.iter().map(|p| (p.id.as_str(), p)).collect();
+    let orphan = opts
+        .with_defects
+        .then(|| sim::participant_id(opts.participants));
+    let mut entries = Vec::new();
+    for e in fs::read_dir(participants)? {
+        entries.push(e?);
+    }
+    entries.sort_by_key(fs::DirEntry::file_name);
+    // Per folder: the paths in it the generator did not write as they are.
+    let found: Vec<Vec<String>> = entries
+        .par_iter()
+        .map_init(
+            || Vec::with_capacity(64 * 1024),
+            |buf, entry| -> io::Result<Vec<String>> {
+                let name = entry.file_name().to_string_lossy().into_owned();
+                let rel = format!("participants/{name}");
+                let mut expected: Vec<(String, Vec<u8>)> = Vec::new();
+                if let Some(plan) = by_id.get(name.as_str()) {
+                    participant_files(plan, &scenario, opts.seed, buf, |f, bytes| {
+                        expected.push((f.to_string(), bytes.to_vec()));
+                        Ok(())
+                    })?;
+                } else if orphan.as_deref() == Some(name.as_str()) {
+                    buf.clear();
+                    write::orphan_weights_csv(buf, &scenario);
+                    expected.push(("weights.csv".into(), buf.clone()));
+                } else {
+                    return Ok(vec![rel]);
+                }
+                if !entry.file_type()?.is_dir() {
+                    return Ok(vec![rel]);
+                }
+                let mut odd = Vec::new();
+                let mut files: Vec<fs::DirEntry> =
+                    fs::read_dir(entry.path())?.collect::<io::Result<_>>()?;
+                files.sort_by_key(fs::DirEntry::file_name);
+                for f in files {
+                    let fname = f.file_name().to_string_lossy().into_owned();
+                    // The generator's bytes, or their start: a file a stopped run (Ctrl-C, a
+                    // full disk) left cut short holds nothing that writing it again loses.
+                    let same = f.file_type()?.is_file()
+                        && expected.iter().any(|(n, bytes)| {
+                            *n == fname
+                                && crate::limits::read_input(&f.path())
+                                    .is_ok_and(|b| bytes.starts_with(&b))
+                        });
+                    if !same {
+                        odd.push(format!("{rel}/{fname}"));
+                    }
+                }
+                Ok(odd)
+            },
+        )
+        .collect::<io::Result<_>>()?;
+    let all: Vec<String> = found.into_iter().flatten().collect();
+    Ok((!all.is_empty()).then(|| (all.iter().take(5).cloned().collect(), all.len())))
 }

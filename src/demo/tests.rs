@@ -669,6 +669,57 @@ fn regenerating_over_a_previous_demo_replaces_its_participants() {
     assert_eq!(fs::read_to_string(root.join("README.md")).unwrap(), "kept");
 }
 
+/// A demo program someone started to use: its program.yaml is still the generated one, but a
+/// participant folder was added and a weigh-in edited. Writing the demo again replaced
+/// participants/ as a whole and deleted both without a word.
+#[test]
+fn regenerating_never_deletes_what_was_added_to_or_changed_in_the_participants() {
+    let opts = DemoOptions {
+        participants: 6,
+        seed: 5,
+        with_defects: true,
+    };
+    let (dir, _) = generated(&opts);
+    let root = demo_root(&dir);
+    let parts = root.join("participants");
+    fs::create_dir(parts.join("LW-0147")).unwrap();
+    fs::write(parts.join("LW-0147/weights.csv"), "date,weight,unit\n").unwrap();
+    let weights = parts.join("SG-002/weights.csv");
+    let mut edited = fs::read(&weights).unwrap();
+    edited.extend_from_slice(b"2026-09-29,70.0,kg,clinic\n");
+    fs::write(&weights, &edited).unwrap();
+    let before = tree_hash(&root);
+
+    let err = generate(&root, &opts).unwrap_err();
+    assert_eq!(err.kind(), io::ErrorKind::AlreadyExists);
+    let msg = err.to_string();
+    assert!(
+        msg.contains("(`participants/LW-0147`, `participants/SG-002/weights.csv`)"),
+        "{msg}"
+    );
+    assert_eq!(tree_hash(&root), before, "nothing was changed");
+
+    // A link where a participant's file was is not the generator's either (and a link
+    // named participants/ is not replaced).
+    fs::remove_dir_all(parts.join("LW-0147")).unwrap();
+    fs::remove_file(&weights).unwrap();
+    std::os::unix::fs::symlink("/etc/hostname", &weights).unwrap();
+    let msg = generate(&root, &opts).unwrap_err().to_string();
+    assert!(msg.contains("(`participants/SG-002/weights.csv`)"), "{msg}");
+
+    // Files of the generator that were deleted, or cut short by a stopped run, lose nothing:
+    // written again.
+    fs::remove_file(&weights).unwrap();
+    let intake = parts.join("SG-003/intake.csv");
+    let cut = fs::read(&intake).unwrap();
+    fs::write(&intake, &cut[..cut.len() / 2]).unwrap();
+    fs::remove_dir_all(parts.join("SG-004")).unwrap();
+    let s = generate(&root, &opts).unwrap();
+    assert_eq!(s.participants, 6);
+    let (fresh, _) = generated(&opts);
+    assert_eq!(tree_hash(&root), tree_hash(&demo_root(&fresh)));
+}
+
 #[test]
 fn committed_sample_matches_the_generator() {
     // If this fails after a deliberate change to the generator, regenerate the sample:

@@ -168,10 +168,51 @@ pub struct Ledger {
 }
 
 impl Ledger {
-    /// Opens (creating if needed) the ledger in `dir`, waiting for another run that is using
-    /// it.
-    pub fn open(dir: &Path) -> std::io::Result<Ledger> {
-        std::fs::create_dir_all(dir).map_err(|e| io_err(dir, e))?;
+    /// Whether `dir` can hold the ledger, checked without creating or locking anything, so a
+    /// run can be refused when it starts rather than after every participant was computed (a
+    /// `--state` naming a file failed only then, with "File exists (os error 17)"): a folder
+    /// of its own (missing, or holding only the ledger's files) and, when there, a
+    /// `ledger.json` that reads. [`Ledger::open`] checks it again under the lock.
+    pub fn check_folder(dir: &Path) -> std::io::Result<()> {
+        if !Self::own_folder(dir)? {
+            return Ok(());
+        }
+        let ledger_path = dir.join(LEDGER_FILE);
+        match crate::limits::read_limited(&ledger_path, LEDGER_LIMIT) {
+            Ok(bytes) => {
+                let f: LedgerFile =
+                    serde_json::from_slice(&bytes).map_err(|e| io_err(&ledger_path, e))?;
+                if f.format != FORMAT {
+                    return Err(io_err(
+                        &ledger_path,
+                        format!("format {} (expected {FORMAT})", f.format),
+                    ));
+                }
+                Ok(())
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+            Err(e) => Err(io_err(&ledger_path, e)),
+        }
+    }
+
+    /// Refuses `dir` unless it is missing (`Ok(false)`) or a folder that holds nothing but the
+    /// ledger's own files (`Ok(true)`).
+    fn own_folder(dir: &Path) -> std::io::Result<bool> {
+        match std::fs::metadata(dir) {
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(false),
+            Err(e) => return Err(io_err(dir, e)),
+            Ok(m) if !m.is_dir() => {
+                return Err(io_err(
+                    dir,
+                    format!(
+                        "is {}, not a folder; the ledger needs a folder of its own (name a new \
+                         one with --state or report.state_dir)",
+                        crate::limits::kind_of(&m.file_type())
+                    ),
+                ));
+            }
+            Ok(_) => {}
+        }
         // A folder of its own: `--state ~` or `--state .` put the ledger's files among other
         // people's (and read any `ledger.json` found there as ours).
         let mut foreign: Vec<String> = std::fs::read_dir(dir)
@@ -200,6 +241,16 @@ impl Ledger {
                 ),
             ));
         }
+        Ok(true)
+    }
+
+    /// Opens (creating if needed) the ledger in `dir`, waiting for another run that is using
+    /// it.
+    pub fn open(dir: &Path) -> std::io::Result<Ledger> {
+        Self::own_folder(dir)?;
+        std::fs::create_dir_all(dir).map_err(|e| io_err(dir, e))?;
+        // Again now that it exists (another run may have made it, or put files in it, since).
+        Self::own_folder(dir)?;
         let lock_path = dir.join(LOCK_FILE);
         let lock = crate::limits::open_lock_file(&lock_path).map_err(|e| io_err(&lock_path, e))?;
         match lock.try_lock() {
@@ -292,6 +343,13 @@ impl Ledger {
     /// Whether the ledger held no release file when opened (its first release is being made).
     pub fn is_new(&self) -> bool {
         self.new
+    }
+
+    /// Whether a release of `program` for the period `from` to `to` (ISO dates) is recorded.
+    pub fn has_release(&self, program: &str, from: &str, to: &str) -> bool {
+        self.releases
+            .iter()
+            .any(|r| r.program == program && r.period_from == from && r.period_to == to)
     }
 
     /// The ledger's folder.

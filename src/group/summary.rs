@@ -774,11 +774,15 @@ pub(super) fn build(
         // the first in sort order): split by the exact text, one site was shown as two, each
         // with part of its people. (The audit links figures by who they count, not by label.)
         let spaced = |v: &str| v.split_whitespace().collect::<Vec<_>>().join(" ");
+        // Compared in the form a reader cannot tell apart (`crate::text::fold_for_comparison`:
+        // also a zero-width space pasted with the value, or full-width letters, which made
+        // one site two sections with the same visible title).
+        let fold = crate::text::fold_for_comparison;
         let mut spellings: BTreeMap<String, BTreeMap<String, usize>> = BTreeMap::new();
         for v in enrolled.iter().filter_map(|r| r.groups.get(key)) {
             let written = spaced(v);
             *spellings
-                .entry(written.to_lowercase())
+                .entry(fold(&written))
                 .or_default()
                 .entry(written)
                 .or_default() += 1;
@@ -802,9 +806,10 @@ pub(super) fn build(
                 .entry(
                     r.groups
                         .get(key)
-                        .map(|v| spelling[&spaced(v).to_lowercase()].clone())
-                        // An empty value (`site: ""`) is not recorded, not a group named "".
-                        .filter(|v| !v.is_empty()),
+                        .map(|v| spelling[&fold(&spaced(v))].clone())
+                        // An empty value (`site: ""`, or only a zero-width space) is not
+                        // recorded, not a group named "".
+                        .filter(|v| !fold(v).is_empty()),
                 )
                 .or_default()
                 .push(r);

@@ -641,6 +641,57 @@ fn site_values_written_with_other_case_or_spacing_are_one_group() {
     check(&rows, &opts(11, &["site"]));
 }
 
+/// Values a reader cannot tell apart: a zero-width space or a soft hyphen pasted with the
+/// value (web pages, chat apps), a no-break space, full-width letters (an East Asian input
+/// method). Compared as written, 11 people at "Kiln Row" and 11 at "Kiln Row" + U+200B were
+/// two sections with the same visible title, each with half the site's figures.
+#[test]
+fn site_values_that_differ_only_in_invisible_or_compatibility_characters_are_one_group() {
+    let mut rows = Vec::new();
+    let written = [
+        "Kiln Row\u{200b}",
+        "Kiln\u{00a0}Row",
+        "Ki\u{00ad}ln Row",
+        "\u{ff2b}\u{ff49}\u{ff4c}\u{ff4e} Row",
+        "Kiln\u{2060} Row",
+    ];
+    for i in 0..22 {
+        let site = if i < 11 { "Kiln Row" } else { written[i % 5] };
+        rows.push(person(site, 80.0 + i as f64, Some(78.0 + i as f64)));
+    }
+    for i in 0..12 {
+        rows.push(person(
+            "North Plant",
+            90.0 + i as f64,
+            Some(88.0 + i as f64),
+        ));
+    }
+    for i in 0..11 {
+        let site = if i % 2 == 0 { "\u{200b}" } else { "" };
+        rows.push(person(site, 60.0 + i as f64, Some(59.0 + i as f64)));
+    }
+    let r = summarize(&rows, &opts(11, &["site"]));
+    let labels: Vec<(&str, u64)> = r.splits[0]
+        .sections
+        .iter()
+        .map(|s| {
+            (
+                s.label.as_str(),
+                val(&s.stats.as_ref().unwrap().enrolment.started),
+            )
+        })
+        .collect();
+    assert_eq!(
+        labels,
+        [
+            ("(not recorded)", 11),
+            ("Kiln Row", 22),
+            ("North Plant", 12)
+        ]
+    );
+    check(&rows, &opts(11, &["site"]));
+}
+
 #[test]
 fn one_small_site_among_many_is_merged_with_the_next_smallest() {
     let mut rows = Vec::new();

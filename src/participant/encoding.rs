@@ -83,11 +83,26 @@ pub fn decode_legacy(bytes: &[u8]) -> Result<(String, String), String> {
 /// clinic systems export. `None` without such a mark; otherwise the text (without the mark) and
 /// the byte order's name, or why it is refused: an odd number of bytes, a lone surrogate, or a
 /// control character other than tab and line ends (a UTF-32 file, or binary data).
+///
+/// A file without the mark is UTF-16 too when its bytes show it ([`unmarked_utf16`]: text of
+/// Latin letters, digits and punctuation has a zero byte in every pair, at the same end), as
+/// some exporters and scripts write it; UTF-8 and Windows-1252 text never holds a zero byte.
 pub fn decode_utf16(bytes: &[u8]) -> Option<Result<(String, &'static str), String>> {
     let (rest, little, order) = match bytes {
         [0xFF, 0xFE, rest @ ..] => (rest, true, "UTF-16 little-endian"),
         [0xFE, 0xFF, rest @ ..] => (rest, false, "UTF-16 big-endian"),
-        _ => return None,
+        _ => match unmarked_utf16(bytes)? {
+            true => (
+                bytes,
+                true,
+                "UTF-16 little-endian (without a byte-order mark)",
+            ),
+            false => (
+                bytes,
+                false,
+                "UTF-16 big-endian (without a byte-order mark)",
+            ),
+        },
     };
     Some((|| {
         if rest.len() % 2 != 0 {
@@ -120,6 +135,31 @@ pub fn decode_utf16(bytes: &[u8]) -> Option<Result<(String, &'static str), Strin
         }
         Ok((out, order))
     })())
+}
+
+/// Whether `bytes` (with no byte-order mark) look like UTF-16 text, and in which byte order
+/// (`Some(true)`: little-endian): the first character is ASCII, and in the first 4 KiB nearly
+/// every pair of bytes has its zero byte at the one end (at least 90 % of the pairs, and at
+/// most 5 % at the other end: characters such as `Ā`, U+0100, have a zero low byte). A file
+/// of text of other scripts (Chinese, Greek) is not recognised so, and is refused as before.
+fn unmarked_utf16(bytes: &[u8]) -> Option<bool> {
+    let sample = &bytes[..bytes.len().min(4096) & !1];
+    if sample.len() < 4 {
+        return None;
+    }
+    let pairs = sample.len() / 2;
+    let zero_at = |i: usize| sample.chunks_exact(2).filter(|p| p[i] == 0).count();
+    let (low, high) = (zero_at(0), zero_at(1));
+    let mostly = |n: usize| n * 10 >= pairs * 9;
+    let rarely = |n: usize| n * 20 <= pairs;
+    let ascii = |b: u8| b.is_ascii_graphic() || b == b' ';
+    if ascii(sample[0]) && sample[1] == 0 && mostly(high) && rarely(low) {
+        Some(true)
+    } else if sample[0] == 0 && ascii(sample[1]) && mostly(low) && rarely(high) {
+        Some(false)
+    } else {
+        None
+    }
 }
 
 #[cfg(test)]
@@ -160,6 +200,43 @@ mod tests {
                 .unwrap_err()
                 .contains("surrogate")
         );
+    }
+
+    /// A UTF-16 export without the mark was read as UTF-8: its header `d\0a\0t\0e\0…` named no
+    /// column, and the file was refused as "missing required columns", quoting the NULs.
+    #[test]
+    fn utf16_without_a_byte_order_mark_is_recognised_by_its_zero_bytes() {
+        let text = "date,weight,unit\r\n2026-04-01,72.5,kg\r\n2026-04-02,Ā 72.4,kg\r\n";
+        let le: Vec<u8> = text.encode_utf16().flat_map(u16::to_le_bytes).collect();
+        let be: Vec<u8> = text.encode_utf16().flat_map(u16::to_be_bytes).collect();
+        assert_eq!(
+            decode_utf16(&le),
+            Some(Ok((
+                text.to_string(),
+                "UTF-16 little-endian (without a byte-order mark)"
+            )))
+        );
+        assert_eq!(
+            decode_utf16(&be),
+            Some(Ok((
+                text.to_string(),
+                "UTF-16 big-endian (without a byte-order mark)"
+            )))
+        );
+        // UTF-32 has zero bytes at both ends: not taken for UTF-16 (its NULs are refused).
+        let utf32: Vec<u8> = text
+            .chars()
+            .flat_map(|c| (c as u32).to_le_bytes())
+            .collect();
+        assert_eq!(decode_utf16(&utf32), None);
+        // Text without zero bytes, a file of a few bytes, and other scripts are left alone.
+        assert_eq!(decode_utf16(b"date,weight\n"), None);
+        assert_eq!(decode_utf16(b"d\0"), None);
+        let greek: Vec<u8> = "ημερομηνία,βάρος"
+            .encode_utf16()
+            .flat_map(u16::to_le_bytes)
+            .collect();
+        assert_eq!(decode_utf16(&greek), None);
     }
 
     #[test]

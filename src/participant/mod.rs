@@ -777,7 +777,16 @@ pub fn load_opened(
         Some(Ok(text)) => {
             enrolled_line = crate::program::load::key_line(&text, "enrolled");
             height_line = crate::program::load::key_line(&text, "height");
-            profile::parse_profile(&text, id, &program.info.targets, &pctx, &mut diags)
+            profile::parse_profile(&text, id, &program.info.targets, &pctx, &mut diags).map(
+                |mut p| {
+                    group_keys_as_the_program_names_them(
+                        &mut p,
+                        &program.def.report.group_by,
+                        &pctx,
+                    );
+                    p
+                },
+            )
         }
     };
     // CSV files are checked even when the profile is unusable, so every problem of the folder
@@ -871,6 +880,39 @@ pub fn load_opened(
         notes,
         files,
         enrolled_line,
+    }
+}
+
+/// A profile's group keys written in other case or spacing than `report.group_by` names them
+/// (`Site:` for `group_by: [site]`, as YAML keys are typed by hand): read as the program's key,
+/// with a note. Compared as written, the participant had no site: counted as "(not recorded)",
+/// one short at their own site, with no word. A key written two ways in one profile is left
+/// as it is (which one counts cannot be known).
+fn group_keys_as_the_program_names_them(
+    profile: &mut cohortpress_metric_api::Profile,
+    group_by: &[String],
+    ctx: &FileCtx,
+) {
+    let fold = |k: &str| crate::text::fold_for_comparison(&k.replace(['_', '-'], " "));
+    for key in group_by {
+        if profile.groups.contains_key(key) {
+            continue;
+        }
+        let near: Vec<String> = profile
+            .groups
+            .keys()
+            .filter(|k| fold(k) == fold(key))
+            .cloned()
+            .collect();
+        if let [written] = near.as_slice()
+            && let Some(v) = profile.groups.remove(written)
+        {
+            ctx.note(format!(
+                "group `{}` read as `{key}`, the name report.group_by gives it",
+                crate::diag::printable(written)
+            ));
+            profile.groups.insert(key.clone(), v);
+        }
     }
 }
 

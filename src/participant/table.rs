@@ -1188,6 +1188,34 @@ fn read_records(
             repeated_headers.get_or_insert(line);
             continue;
         }
+        // The header again with its columns in another order, or some of them (exports of two
+        // versions of an app, joined): the rows below it were read under the first header's
+        // columns, so an
+        // intake file's `kcal` took its `protein_g` (90 kcal a day) with only an "unreadable
+        // date" warning about the header line. Which rows follow which header cannot be told
+        // from the rows alone: the file is refused, located there.
+        let cells: Vec<&str> = rec
+            .iter()
+            .map(str::trim)
+            .filter(|f| !f.is_empty())
+            .collect();
+        if cells.len() >= 2 && cells.iter().all(|f| written.iter().any(|h| h == f)) {
+            let header_text = |fields: Vec<&str>| fields.join(&delim_text);
+            diags.append(&mut extra);
+            diags.push(
+                ctx.error(format!(
+                    "the header is repeated on line {line} with other columns or in another order; the rows below it cannot be read under the first header's columns, and the file is not used"
+                ))
+                .at(line, Some(1))
+                .expected(format!(
+                    "the header as on line {header_line}: `{}`",
+                    header_text(written.iter().map(|h| h.as_str()).collect())
+                ))
+                .found(format!("`{}`", header_text(cells)))
+                .hint("the file joins exports with different columns: split it into two files, or give the second part the first part's columns in its order"),
+            );
+            return None;
+        }
         // A date row: the date alone, in the first field.
         if time_for_date_rows.is_some()
             && let Some(first) = rec.get(0).map(str::trim)
@@ -2472,6 +2500,42 @@ mod tests {
                 .message
                 .contains("repeated inside the file (first on line 3"),
         );
+    }
+
+    /// Exports of two app versions joined, the second with its columns in another order: the
+    /// rows below it were read under the first header's columns (an intake file's `kcal` took
+    /// `protein_g`, 90 kcal a day), with only an "unreadable date" warning for the header line.
+    #[test]
+    fn a_header_repeated_with_its_columns_in_another_order_refuses_the_file_there() {
+        let text = "date,weight,unit,source\n2026-05-01,72.5,kg,home\n\
+                    date,unit,source,weight\n2026-05-02,kg,home,72.3\n";
+        let (t, d) = read(text, &CsvOptions::default());
+        assert!(t.is_none(), "the file is not used");
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(1)));
+        assert_eq!(
+            d[0].message,
+            "the header is repeated on line 3 with other columns or in another order; the rows \
+             below it cannot be read under the first header's columns, and the file is not used"
+        );
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("the header as on line 1: `date,weight,unit,source`")
+        );
+        assert_eq!(d[0].found.as_deref(), Some("`date,unit,source,weight`"));
+        // Some of its columns only: `date,kcal,protein_g` then `date,protein_g` read the
+        // protein as kcal.
+        let fewer = "date,weight,unit,source\n2026-05-01,72.5,kg,home\n\
+                     date,unit,weight\n2026-05-02,kg,72.3\n";
+        let (t, d) = read(fewer, &CsvOptions::default());
+        assert!(t.is_none());
+        assert_eq!(d[0].found.as_deref(), Some("`date,unit,weight`"), "{d:#?}");
+        // In the same order it is the header again, not a problem.
+        let same = "date,weight,unit\n2026-05-01,72.5,kg\ndate,weight,unit\n2026-05-02,72.3,kg\n";
+        let (t, d) = read(same, &CsvOptions::default());
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.unwrap().rows.len(), 2);
     }
 
     #[test]

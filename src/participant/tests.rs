@@ -490,3 +490,45 @@ fn the_profile_height_and_high_bmi_flag_reach_the_weights_reader() {
     assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
     assert_eq!(lp.data.unwrap().weights[0].weight.kg(), 200.0);
 }
+
+/// `Site:` in a profile of a program with `group_by: [site]` (YAML keys are typed by hand): the
+/// participant had no site, and was counted under "(not recorded)" instead of at their site,
+/// with no word. The key is read as the program names it, with a note.
+#[test]
+fn a_group_key_in_other_case_or_spacing_is_read_as_report_group_by_names_it() {
+    let tmp = tempfile::tempdir().unwrap();
+    fs::write(
+        tmp.path().join("program.yaml"),
+        format!("{PROGRAM}report: {{ group_by: [site, work_team] }}\n"),
+    )
+    .unwrap();
+    let p = crate::program::load_program(tmp.path()).unwrap();
+    let text = format!("{PROFILE}groups: {{ Site: Kiln Row, Work Team: Glazing, shift: B }}\n");
+    let dir = participant(tmp.path(), "P1", &[("profile.yaml", text.as_bytes())]);
+    let lp = load_participant(&p, &dir, as_of());
+    let data = lp.data.expect("usable");
+    let groups: Vec<(&str, &str)> = data
+        .profile
+        .groups
+        .iter()
+        .map(|(k, v)| (k.as_str(), v.as_str()))
+        .collect();
+    assert_eq!(
+        groups,
+        [
+            ("shift", "B"),
+            ("site", "Kiln Row"),
+            ("work_team", "Glazing")
+        ]
+    );
+    let notes: Vec<&str> = lp.notes.iter().map(|n| n.message.as_str()).collect();
+    assert!(
+        notes.contains(&"group `Site` read as `site`, the name report.group_by gives it"),
+        "{notes:?}"
+    );
+    // Written two ways in one profile: which one counts cannot be known; neither is taken.
+    let both = format!("{PROFILE}groups: {{ Site: Kiln Row, SITE: North }}\n");
+    fs::write(dir.path.join("profile.yaml"), both).unwrap();
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(!lp.data.expect("usable").profile.groups.contains_key("site"));
+}

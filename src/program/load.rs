@@ -64,6 +64,22 @@ pub fn parse_program(root: &Path, text: &str) -> Result<Program, Vec<Diagnostic>
     })
 }
 
+/// Why `path` cannot be meant as written, if it starts with `~` (`~`, `~/reports`, `~ana/x`):
+/// a shell's word for a home folder, which nothing here expands, so it would name a folder
+/// called `~` (relative to the program folder, or to the working folder on the command line).
+pub fn tilde_problem(path: &Path) -> Option<String> {
+    let first = path.components().next()?;
+    first
+        .as_os_str()
+        .to_string_lossy()
+        .starts_with('~')
+        .then(|| {
+            "the path starts with `~`, which is not read as the home folder here: it would be a \
+             folder named `~`"
+                .to_string()
+        })
+}
+
 /// A path with `.` and `..` resolved lexically (the folder may not exist yet).
 pub fn lexical(path: &Path) -> PathBuf {
     use std::path::Component;
@@ -277,6 +293,25 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
             err("report.formats", "no output formats are listed".into())
                 .expected("one or more of `html`, `pdf`"),
         );
+    }
+    // `~` is a shell's word for the home folder; in program.yaml it is a folder named `~` in the
+    // program folder: `out: ~/cohort-reports` put every participant's report in
+    // `PROGRAM/~/cohort-reports` with no word, while the user looked in their home folder.
+    for (key, path) in [
+        ("report.out", Some(&def.report.out)),
+        ("report.state_dir", def.report.state_dir.as_ref()),
+        ("report.templates", def.report.templates.as_ref()),
+    ] {
+        if let Some(p) = path
+            && let Some(why) = tilde_problem(p)
+        {
+            out.push(
+                err(key, why)
+                    .expected("a path relative to the program folder, or a full path (`/home/…`)")
+                    .found(format!("`{}`", p.display()))
+                    .hint("write the home folder's full path; program.yaml paths are not expanded by a shell"),
+            );
+        }
     }
     if let Some(tpl) = &def.report.templates {
         let dir = root.join(tpl);
@@ -957,6 +992,43 @@ report:
         );
         let ok = text.replace(", k5", "");
         assert!(parse_program(root(), &ok).is_ok());
+    }
+
+    /// `out: ~/cohort-reports` put every participant's report into a folder named `~` inside
+    /// the program folder, with no word (check: "ok"), while the user looked in their home.
+    #[test]
+    fn a_path_that_starts_with_a_tilde_is_an_error_at_its_line() {
+        let text = "format_version: 1
+program: { id: demo, title: Demo, start: 2026-04-01, end: 2026-09-30 }
+modules: [ {id: trend} ]
+report:
+  out: ~/cohort-reports
+  state_dir: ~ana/ledger
+  templates: \"~\"
+";
+        let e = parse_program(root(), text).unwrap_err();
+        let found: Vec<(Option<&str>, Option<u64>, Option<&str>)> = e
+            .iter()
+            .filter(|d| d.message.starts_with("the path starts with `~`"))
+            .map(|d| (d.field.as_deref(), d.line, d.found.as_deref()))
+            .collect();
+        assert_eq!(
+            found,
+            [
+                (Some("report.out"), Some(5), Some("`~/cohort-reports`")),
+                (Some("report.state_dir"), Some(6), Some("`~ana/ledger`")),
+                (Some("report.templates"), Some(7), Some("`~`")),
+            ],
+            "{e:#?}"
+        );
+        // A `~` further on is an ordinary folder name.
+        let ok = "format_version: 1
+program: { id: demo, title: Demo, start: 2026-04-01, end: 2026-09-30 }
+modules: [ {id: trend} ]
+report:
+  out: reports/~old
+";
+        assert!(parse_program(root(), ok).is_ok());
     }
 
     #[test]

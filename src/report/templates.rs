@@ -75,6 +75,23 @@ pub enum TemplateError {
     Cycle(String),
 }
 
+/// [`TemplateSet::load`], with a template of the program's own that cannot be used (it does
+/// not parse, partials include each other, a link, code or an outside address in it) as the
+/// program error `check`, `run` and `merge` all give (exit code 3): the program folder is
+/// invalid and nothing is computed.
+// A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
+#[allow(clippy::result_large_err)]
+pub fn load_checked(program: &Program) -> Result<TemplateSet, crate::diag::Diagnostic> {
+    TemplateSet::load(program).map_err(|e| {
+        crate::diag::Diagnostic::error(
+            "program.yaml",
+            format!("a report template of report.templates cannot be used: {e}"),
+        )
+        .field("report.templates")
+        .hint("correct the template named; no run computes anything while it cannot be used")
+    })
+}
+
 impl TemplateSet {
     /// The built-in set with the program's `report.templates` folder (if any) on top.
     pub fn load(program: &Program) -> Result<Self, TemplateError> {

@@ -25,6 +25,7 @@ use crate::tidy;
 use cohortpress_metric_api::ParticipantData;
 use cohortpress_metric_trend::view::Status;
 use rayon::prelude::*;
+use std::path::Path;
 use std::sync::Mutex;
 use std::time::Instant;
 
@@ -79,8 +80,14 @@ pub fn select_participants(
 /// outputs.
 pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     let (dirs, discovery) = select_participants(plan)?;
-    let templates = report::templates::TemplateSet::load(&plan.program)
-        .map_err(|e| RunError::Render(e.to_string()))?;
+    let templates =
+        crate::report::templates::load_checked(&plan.program).map_err(|d| RunError::Invalid {
+            by: super::Blame::Program,
+            diagnostics: vec![d],
+        })?;
+    if plan.shard.is_none() {
+        check_ledger_folder(plan)?;
+    }
     let staging = plan.begin_staging()?;
     tracing::info!(
         "program {}: {} participants{}, period {} to {}, as of {}",
@@ -307,6 +314,16 @@ fn tally(
     (summary, all_diags, rows, inputs)
 }
 
+/// Refuses, before any participant is computed, a ledger folder the group step could not open
+/// (see [`group::ledger::Ledger::check_folder`]); `Ok` when the run writes no group report.
+pub fn check_ledger_folder(plan: &RunPlan) -> Result<(), RunError> {
+    if !plan.only.is_empty() {
+        return Ok(());
+    }
+    group::ledger::Ledger::check_folder(&plan.state_dir)
+        .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))
+}
+
 /// The group step, group reports, tidy metrics and manifest from every participant's record
 /// (sorted by id), then the swap into place. Shared by `run` and `merge`, which is why a
 /// merged output equals a single run's.
@@ -349,6 +366,24 @@ pub fn finish(
                  earlier run, which this one is not audited against; if its ledger was moved, \
                  name it with --state (or report.state_dir), or a difference of two reports may \
                  give away a small group's figures",
+                ledger.dir().display(),
+                plan.out_dir.display()
+            );
+        }
+        // A ledger that does not hold the release of the group report already in the output
+        // folder: an older copy of the ledger (restored from another backup than the output),
+        // another copy of it, or one emptied by hand. That report is not audited against, as
+        // with a new ledger, and was silent.
+        if !ledger.is_new()
+            && let Some((from, to)) = published_period(&plan.out_dir, &plan.program.info.id)
+            && !ledger.has_release(&plan.program.info.id, &from, &to)
+        {
+            tracing::warn!(
+                "group-report ledger {}: {} holds a group report of this program for {from} to \
+                 {to}, which the ledger does not record (an older or another copy of the \
+                 ledger?), so this group report is not audited against it; if that report's \
+                 ledger is elsewhere, name it with --state (or report.state_dir), or a \
+                 difference of two reports may give away a small group's figures",
                 ledger.dir().display(),
                 plan.out_dir.display()
             );
@@ -441,6 +476,27 @@ pub fn finish(
     timing.commit_s = phase.elapsed().as_secs_f64();
     tracing::debug!("{} output files", outputs.files);
     Ok((summary, timing))
+}
+
+/// The period (`period_from`, `period_to`) of the complete output of program `program_id` in
+/// `out_dir` when it holds a group report, from its `manifest.json` (read like an input).
+fn published_period(out_dir: &Path, program_id: &str) -> Option<(String, String)> {
+    if !out_dir.join("group").is_dir() {
+        return None;
+    }
+    let bytes = crate::limits::read_input(&out_dir.join("manifest.json")).ok()?;
+    let m: serde_json::Value = serde_json::from_slice(&bytes).ok()?;
+    let ours = m["tool"]
+        .as_str()
+        .is_some_and(|t| t.starts_with("cohortpress "))
+        && m["program_id"].as_str() == Some(program_id)
+        && m["scope"].as_str() == Some("complete");
+    ours.then(|| {
+        Some((
+            m["period_from"].as_str()?.to_string(),
+            m["period_to"].as_str()?.to_string(),
+        ))
+    })?
 }
 
 /// `--incremental`: the participant's previous record and reports, copied into staging, when

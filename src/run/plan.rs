@@ -167,6 +167,19 @@ pub fn output_target(
 
 type PlanError = RunError;
 
+/// Refuses `--out` or `--state` written with a `~` the shell did not expand (quoted, as in a
+/// cron line `--out "~/reports"`): it would name a folder called `~` in the working folder.
+fn no_tilde(option: &str, path: Option<&Path>) -> Result<(), PlanError> {
+    match path.and_then(program::load::tilde_problem) {
+        Some(why) => Err(usage(format!(
+            "{option} {}: {why}; write the full path (a shell expands `~` only when it is not \
+             quoted)",
+            path.unwrap_or(Path::new("")).display()
+        ))),
+        None => Ok(()),
+    }
+}
+
 fn usage(message: String) -> PlanError {
     RunError::Invalid {
         by: Blame::CommandLine,
@@ -195,6 +208,8 @@ fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
 /// folder.
 pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
     let (program, modules) = load_checked(&args.program)?;
+    no_tilde("--out", args.out.as_deref())?;
+    no_tilde("--state", args.state.as_deref())?;
     let as_of = args.as_of.unwrap_or(today);
     let period = resolve_period(&program, as_of, args).map_err(usage)?;
     let (mut out_dir, out_named_by) = match &args.out {
@@ -280,6 +295,8 @@ pub fn plan_for_merge(
             }
         });
     }
+    no_tilde("--out", args.out.as_deref())?;
+    no_tilde("--state", args.state.as_deref())?;
     let (out_dir, out_named_by) = match &args.out {
         Some(o) => (o.clone(), "--out"),
         None => (program.root.join(&program.def.report.out), "report.out"),

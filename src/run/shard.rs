@@ -222,6 +222,7 @@ pub fn merge_shards(opts: &MergeOptions) -> Result<(RunSummary, usize, PathBuf),
 }
 
 fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSummary, RunError> {
+    execute::check_ledger_folder(plan)?;
     let staging = plan.begin_staging()?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();
@@ -269,8 +270,11 @@ fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSu
         .iter()
         .map(DiagRecord::to_diagnostic)
         .collect();
-    let templates = crate::report::templates::TemplateSet::load(&plan.program)
-        .map_err(|e| RunError::Render(e.to_string()))?;
+    let templates =
+        crate::report::templates::load_checked(&plan.program).map_err(|d| RunError::Invalid {
+            by: super::Blame::Program,
+            diagnostics: vec![d],
+        })?;
     let columns = columns
         .into_inner()
         .expect("no panics while holding the lock");

@@ -513,3 +513,96 @@ fn a_participant_named_like_a_windows_device_is_left_out() {
     assert!(out.join("participants/SG-001.html").exists());
     assert!(!out.join("participants/Com1.html").exists());
 }
+
+/// Unmounts on drop, so a failed assertion leaves no mount behind.
+struct Mounted(PathBuf);
+
+impl Drop for Mounted {
+    fn drop(&mut self) {
+        let _ = std::process::Command::new("umount").arg(&self.0).status();
+    }
+}
+
+/// `--out` naming a mount point: a USB stick or share mounted at `/media/reports`, or a
+/// container's volume (`-v /srv/out:/out`, `--out /out`). Every run computed every participant,
+/// recorded its release in the ledger, and then failed at the swap with "Device or resource
+/// busy (os error 16)", exit 6, month after month. Now refused before anything is done, naming
+/// a folder inside it. Needs the right to mount (root, as in the project's test machine);
+/// skipped with a message without it.
+#[test]
+fn an_output_folder_that_is_a_mount_point_is_refused_before_anything_is_done() {
+    let t = ProgramTest::fixture("report-small");
+    let out = out_dir(&t);
+    fs::create_dir(&out).unwrap();
+    let mounted = std::process::Command::new("mount")
+        .args(["-t", "tmpfs", "-o", "size=16m", "tmpfs"])
+        .arg(&out)
+        .stderr(std::process::Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success());
+    if !mounted {
+        eprintln!("skipped: cannot mount a tmpfs here (not root)");
+        return;
+    }
+    let _guard = Mounted(out.clone());
+    let o = run(&t, "html");
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(
+        o.stderr.contains("it is a mount point") && o.stderr.contains("name a folder inside it"),
+        "{}",
+        o.stderr
+    );
+    assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+    assert_eq!(
+        fs::read_dir(&out).unwrap().count(),
+        0,
+        "nothing written in it"
+    );
+    let parent = out.parent().unwrap();
+    assert!(!parent.join("out.ledger").exists(), "no release recorded");
+    // A folder inside it works.
+    let inside = out.join("reports");
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        inside.to_str().unwrap(),
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(inside.join("group/program.html").is_file());
+}
+
+/// `~` that no shell expanded: `--out "~/reports"` quoted in a cron line, or `out: ~/reports`
+/// in program.yaml. The reports went into a folder named `~` in the working (or program)
+/// folder, with no word; a later `rm -r ~` to tidy it up is the user's home folder.
+#[test]
+fn a_path_starting_with_a_tilde_is_refused_not_made_into_a_folder_named_tilde() {
+    let t = ProgramTest::fixture("report-small");
+    for (option, code) in [("--out", 2), ("--state", 2)] {
+        let o = t.run(&["run", "{dir}", "--as-of", AS_OF, option, "~/reports"]);
+        assert_eq!(o.code, code, "{option}: {o:?}");
+        assert!(
+            o.stderr
+                .contains(&format!("{option} ~/reports: the path starts with `~`")),
+            "{}",
+            o.stderr
+        );
+        assert!(!t.dir.join("~").exists());
+    }
+    let yaml = t.dir.join("program.yaml");
+    let text = fs::read_to_string(&yaml).unwrap();
+    fs::write(&yaml, text.replace("  out: reports", "  out: ~/reports")).unwrap();
+    for command in ["run", "check"] {
+        let o = t.run(&[command, "{dir}", "--as-of", AS_OF]);
+        assert_eq!(o.code, 3, "{command}: {o:?}");
+        assert!(
+            format!("{}{}", o.stdout, o.stderr).contains("the path starts with `~`"),
+            "{command}: {o:?}"
+        );
+        assert!(!t.dir.join("~").exists());
+    }
+}

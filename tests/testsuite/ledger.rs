@@ -388,6 +388,111 @@ fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
     );
 }
 
+/// The ledger restored from an older backup than the output folder (or another copy of it):
+/// the group report in the output folder is not recorded in it, so the next report was not
+/// audited against it, with no word.
+#[test]
+fn a_ledger_that_does_not_record_the_outputs_group_report_is_warned_about() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |period: &str| {
+        t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--period",
+            period,
+        ])
+    };
+    let says = "which the ledger does not record";
+    let o = run("2026-09");
+    assert_eq!(o.code, 0, "{o:?}");
+    let ledger = t.dir.join("reports.ledger/ledger.json");
+    let backup = std::fs::read(&ledger).unwrap();
+    let o = run("2026-08");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(!o.stderr.contains(says), "{}", o.stderr);
+    // The September-only copy comes back; the output holds August's group report.
+    std::fs::write(&ledger, &backup).unwrap();
+    let o = run("2026-09");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("holds a group report of this program for 2026-08-01 to 2026-08-31"),
+        "{}",
+        o.stderr
+    );
+    assert!(o.stderr.contains(says), "{}", o.stderr);
+    // Now recorded: the output holds September's report, which the ledger has.
+    let o = run("2026-09");
+    assert!(!o.stderr.contains(says), "{}", o.stderr);
+    // A ledger emptied by hand (its key kept) is the same case.
+    let mut v: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(&ledger).unwrap()).unwrap();
+    v["releases"] = serde_json::json!([]);
+    std::fs::write(&ledger, v.to_string()).unwrap();
+    let o = run("2026-09");
+    assert!(
+        o.stderr
+            .contains("holds a group report of this program for 2026-09-01 to 2026-09-30"),
+        "{}",
+        o.stderr
+    );
+}
+
+/// `--state` naming a file (a typo, the program file) or a folder of someone else's: every
+/// participant was computed first, and the run then failed with "File exists (os error 17)".
+/// Now the run is refused when it starts, saying what is wrong (exit 6 as before).
+#[test]
+fn a_ledger_folder_that_cannot_be_used_stops_the_run_before_anything_is_computed() {
+    let t = ProgramTest::fixture("report-small");
+    let file = t.dir.join("program.yaml");
+    let before = std::fs::read(&file).unwrap();
+    let run = |state: &str| {
+        t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--state",
+            state,
+        ])
+    };
+    let o = run(&file.to_string_lossy());
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr.contains(
+            "program.yaml: is a regular file, not a folder; the ledger needs a folder of its own"
+        ),
+        "{}",
+        o.stderr
+    );
+    // Refused before the participants: the line that starts them is not logged.
+    assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+    assert_eq!(std::fs::read(&file).unwrap(), before);
+    assert!(!t.dir.join("reports").exists());
+    // A ledger.json that does not read (cut short when a disk filled) is found then too.
+    let cut = t.dir.parent().unwrap().join("cut");
+    std::fs::create_dir(&cut).unwrap();
+    std::fs::write(
+        cut.join("ledger.json"),
+        "{\"format\":1,\"releases\":[{\"pro",
+    )
+    .unwrap();
+    let o = run(&cut.to_string_lossy());
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr.contains("ledger.json: EOF while parsing"),
+        "{}",
+        o.stderr
+    );
+    assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+}
+
 #[test]
 fn the_ledger_needs_a_folder_of_its_own() {
     let t = ProgramTest::fixture("report-small");

@@ -1080,8 +1080,21 @@ fn partials_that_include_each_other_are_refused() {
     std::fs::write(prog.dir.join("templates/partials/table.hbs"), "{{> kv}}").unwrap();
     use_template_folder(&prog);
     let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
-    assert_eq!(out.code, 6, "{}", out.stderr);
+    // A template the run cannot load is a problem of the program folder (exit 3, nothing
+    // computed), and `check` says so with the same code: it said "ok" (exit 0) and every run
+    // then stopped with exit 6.
+    assert_eq!(out.code, 3, "{}", out.stderr);
     assert!(out.stderr.contains("loop"), "{}", out.stderr);
+    assert!(!prog.dir.join("reports").exists());
+    let check = prog.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 3, "{}", check.stdout);
+    assert!(
+        check
+            .stdout
+            .contains("a report template of report.templates cannot be used: partials include each other in a loop"),
+        "{}",
+        check.stdout
+    );
 }
 
 #[cfg(unix)]
