@@ -784,27 +784,28 @@ mod tests {
         );
         let (code, out) = run(tmp.path());
         assert_eq!(code, exit_code::PARTICIPANT_ERRORS, "{out}");
-        // 20 warnings + "… and 5 more like this" in weights.csv, 2 in intake.csv.
+        // One warning per file for its rows before enrolment (25 in weights.csv, 2 in
+        // intake.csv).
         assert!(
-            out.contains("checked 2 participants: 1 usable, 1 with errors; 1 error, 24 warnings"),
+            out.contains("checked 2 participants: 1 usable, 1 with errors; 1 error, 3 warnings"),
             "{out}"
         );
         // The summary: the error, the other participant's warning, then one line for P1's.
         assert!(out.contains("summary by kind (2 kinds):\n  error ×1, 1 participant: enrolment date 2026-11-02 is after the program ends (2026-09-30); the participant cannot be used\n      at participants/P1/profile.yaml:5\n  warning ×1, 1 participant: not a number in `weight`"), "{out}");
         assert!(
-            out.contains("  warning ×23 in the files of 1 participant that cannot be used (P1): not listed here, as they matter once their errors are fixed (`check --verbose` lists them)\n"),
+            out.contains("  warning ×2 in the files of 1 participant that cannot be used (P1): not listed here, as they matter once their errors are fixed (`check --verbose` lists them)\n"),
             "{out}"
         );
         // The details: the error first, the warnings in one line per participant.
         assert!(
-            out.contains("\nP1: not usable (1 error, 23 warnings)\nerror: participants/P1/profile.yaml:5: enrolment date"),
+            out.contains("\nP1: not usable (1 error, 2 warnings)\nerror: participants/P1/profile.yaml:5: enrolment date"),
             "{out}"
         );
         assert!(
-            out.contains("  … and 23 warnings not listed (intake.csv 2, weights.csv 21): the participant cannot be used until the error above is fixed, and some warnings may follow from it; `check --verbose` lists them\n"),
+            out.contains("  … and 2 warnings not listed (intake.csv 1, weights.csv 1): the participant cannot be used until the error above is fixed, and some warnings may follow from it; `check --verbose` lists them\n"),
             "{out}"
         );
-        assert!(!out.contains("is before enrolment"), "{out}");
+        assert!(!out.contains("dated before enrolment"), "{out}");
         // The usable participant's warning is still given in full.
         assert!(
             out.contains("warning: participants/P2/weights.csv:3:2: not a number in `weight`"),
@@ -824,13 +825,17 @@ mod tests {
         let first_warning = p1.find("warning: participants/P1/").unwrap();
         assert!(error_at < first_warning, "{verbose}");
         assert_eq!(
-            p1.matches("is before enrolment (2026-11-02)").count(),
-            23,
+            p1.matches("rows are dated before enrolment (2026-11-02; 2026-05-")
+                .count(),
+            2,
             "{verbose}"
         );
         assert!(
-            verbose
-                .contains("warning ×20, 1 participant: e.g. date 2026-05-01 is before enrolment"),
+            verbose.contains(
+                "warning ×1, 1 participant: 25 rows are dated before enrolment (2026-11-02; \
+                 2026-05-01 to 2026-05-25, the first at this line); they are not counted\n      \
+                 at participants/P1/weights.csv:2:1"
+            ),
             "{verbose}"
         );
     }

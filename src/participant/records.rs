@@ -329,6 +329,12 @@ fn dedupe<T: SameValue>(
 }
 
 /// Drops rows dated after `as_of`, before enrolment or after withdrawal.
+///
+/// One such row is named on its own; several of one kind are named in one warning at the
+/// first of them, with their number and dates. A re-issue of an earlier month (an early
+/// `--as-of`) leaves every later row out by design, and an enrolment date typed a month late
+/// leaves out a month of rows: one note per file and kind says so, where a note per row filled
+/// the participant's report (69 notes for one participant's re-issued month).
 fn in_window<T>(
     rows: Vec<Parsed<T>>,
     w: &Window,
@@ -336,57 +342,91 @@ fn in_window<T>(
     ctx: &FileCtx,
     diags: &mut Vec<Diagnostic>,
 ) -> Vec<Parsed<T>> {
+    #[derive(Clone, Copy, PartialEq)]
+    enum Out {
+        Future,
+        BeforeEnrolment(NaiveDate),
+        AfterWithdrawal(NaiveDate),
+    }
     let col = table.column("date");
-    rows.into_iter()
-        .filter(|r| {
-            let problem = if r.date > w.as_of {
-                Some((
-                    format!(
-                        "date {} is in the future (after the as-of date {}); the row is dropped",
-                        r.date, w.as_of
-                    ),
-                    format!("a date on or before {}", w.as_of),
-                    "check the year; run with a later `--as-of` if the data are real",
-                ))
-            } else if w.enrolled.is_some_and(|e| r.date < e) {
-                let e = w.enrolled.expect("checked");
-                Some((
-                    format!(
-                        "date {} is before enrolment ({e}); the row is dropped",
-                        r.date
-                    ),
-                    format!("a date on or after {e}"),
-                    "check the date, or the `enrolled` date in profile.yaml",
-                ))
-            } else if w.withdrew.is_some_and(|x| r.date > x) {
-                let x = w.withdrew.expect("checked");
-                Some((
-                    format!(
-                        "date {} is after withdrawal ({x}); the row is dropped",
-                        r.date
-                    ),
-                    format!("a date on or before {x}"),
-                    "check the date, or the `withdrew` date in profile.yaml",
-                ))
-            } else {
-                None
-            };
-            match problem {
-                Some((msg, expected, hint)) => {
-                    diags.push(
-                        ctx.warning(msg)
-                            .at(r.line, col)
-                            .field("date")
-                            .expected(expected)
-                            .found(r.date.to_string())
-                            .hint(hint),
-                    );
-                    false
+    let why = |d: NaiveDate| {
+        if d > w.as_of {
+            Some(Out::Future)
+        } else if let Some(e) = w.enrolled.filter(|e| d < *e) {
+            Some(Out::BeforeEnrolment(e))
+        } else {
+            w.withdrew.filter(|x| d > *x).map(Out::AfterWithdrawal)
+        }
+    };
+    // (kind, first line, earliest and latest date, count), in the order first met.
+    let mut left: Vec<(Out, u64, NaiveDate, NaiveDate, usize)> = Vec::new();
+    let kept: Vec<Parsed<T>> = rows
+        .into_iter()
+        .filter(|r| match why(r.date) {
+            Some(k) => {
+                match left.iter_mut().find(|x| x.0 == k) {
+                    Some(x) => {
+                        x.2 = x.2.min(r.date);
+                        x.3 = x.3.max(r.date);
+                        x.4 += 1;
+                    }
+                    None => left.push((k, r.line, r.date, r.date, 1)),
                 }
-                None => true,
+                false
             }
+            None => true,
         })
-        .collect()
+        .collect();
+    for (kind, line, lo, hi, n) in left {
+        let dates = if lo == hi {
+            lo.to_string()
+        } else {
+            format!("{lo} to {hi}")
+        };
+        let (one, many, expected, hint) = match kind {
+            Out::Future => (
+                format!(
+                    "date {lo} is in the future (after the as-of date {}); the row is dropped",
+                    w.as_of
+                ),
+                format!(
+                    "{n} rows are dated after the as-of date {} ({dates}, the first at this \
+                     line); they are not counted",
+                    w.as_of
+                ),
+                format!("a date on or before {}", w.as_of),
+                "check the year; run with a later `--as-of` if the data are real (a re-issue \
+                 of an earlier month leaves later rows out by design)",
+            ),
+            Out::BeforeEnrolment(e) => (
+                format!("date {lo} is before enrolment ({e}); the row is dropped"),
+                format!(
+                    "{n} rows are dated before enrolment ({e}; {dates}, the first at this \
+                     line); they are not counted"
+                ),
+                format!("a date on or after {e}"),
+                "check the date, or the `enrolled` date in profile.yaml",
+            ),
+            Out::AfterWithdrawal(x) => (
+                format!("date {lo} is after withdrawal ({x}); the row is dropped"),
+                format!(
+                    "{n} rows are dated after withdrawal ({x}; {dates}, the first at this \
+                     line); they are not counted"
+                ),
+                format!("a date on or before {x}"),
+                "check the date, or the `withdrew` date in profile.yaml",
+            ),
+        };
+        diags.push(
+            ctx.warning(if n == 1 { one } else { many })
+                .at(line, col)
+                .field("date")
+                .expected(expected)
+                .found(dates)
+                .hint(hint),
+        );
+    }
+    kept
 }
 
 #[derive(Debug, Clone, Copy, PartialEq)]

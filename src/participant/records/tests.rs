@@ -577,6 +577,46 @@ fn dates_outside_the_window_are_dropped() {
     assert_eq!(diags[2].column, Some(1));
 }
 
+/// A re-issue of an earlier month (an early as-of) leaves every later row out: one warning per
+/// file says how many and from when to when, at the first of them; it was one per row (69 notes
+/// in one participant's re-issued report).
+#[test]
+fn many_rows_after_the_as_of_date_are_one_warning() {
+    let mut diags = Vec::new();
+    let w = Window {
+        enrolled: Some(d(2026, 4, 1)),
+        withdrew: None,
+        as_of: d(2026, 7, 1),
+        height_cm: None,
+        high_bmi_checked: false,
+        low_bmi_checked: false,
+    };
+    let mut text = String::from("date,weight,unit\n");
+    for day in 20..=30 {
+        text.push_str(&format!("2026-06-{day},72,kg\n"));
+    }
+    for day in 2..=31 {
+        text.push_str(&format!("2026-07-{day:02},71,kg\n"));
+    }
+    let out = parse_weights(
+        &text,
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &w,
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(out.len(), 11);
+    assert_eq!(diags.len(), 1, "{diags:?}");
+    assert_eq!(
+        diags[0].message,
+        "30 rows are dated after the as-of date 2026-07-01 (2026-07-02 to 2026-07-31, the first \
+         at this line); they are not counted"
+    );
+    assert_eq!((diags[0].line, diags[0].column), (Some(13), Some(1)));
+    assert_eq!(diags[0].found.as_deref(), Some("2026-07-02 to 2026-07-31"));
+}
+
 #[test]
 fn bad_units_dates_and_times() {
     let (w, diags) = weights(
