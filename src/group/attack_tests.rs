@@ -1152,3 +1152,62 @@ fn a_first_month_shown_for_its_headline_and_the_next_month_pin_nobody() {
         Vec::<Vec<String>>::new()
     );
 }
+
+/// Two monthly releases of a 300-person program whose complements the search for a result
+/// showing retention chose ([`super::tests::a_later_month`]: active 277, with a recent
+/// weigh-in 269, so 8 active people without one, withdrawn 23). In the second month two people
+/// with a recent weigh-in withdraw and three of the 8 weigh in again. The attacker knows who is
+/// in every count of both releases (who withdrew, who has data, who is in which bin) and reads
+/// every printed count and range of both: no count or difference of nested counts of fewer
+/// than 11 people is left with fewer than three possible sizes. Without the protection it
+/// finds the 8 at once (active − with a recent weigh-in).
+#[test]
+fn retention_shown_beside_few_active_without_a_weigh_in_pins_nobody_across_two_months() {
+    let min = 11;
+    let first: Vec<Person> = super::tests::a_later_month(1)
+        .into_iter()
+        .enumerate()
+        .map(|(i, mut row)| {
+            let name = format!("P{i:03}");
+            row.pseudonym = Some(pseudonym(&name));
+            Person { name, row }
+        })
+        .collect();
+    let mut second = first.clone();
+    for p in &mut second[100..102] {
+        p.row.withdrawn = true;
+        p.row.outcome_kg = None;
+        p.row.activity_minutes_per_week = None;
+        p.row.weigh_ins_per_week = None;
+        p.row.food_log_days_per_week = None;
+    }
+    for p in &mut second[23..26] {
+        p.row.outcome_kg = p.row.baseline_kg.map(|b| b * 0.98);
+    }
+    let months = [first, second];
+    let pairs = |rel: &[Release]| -> Vec<String> {
+        let rows: Vec<Vec<ParticipantSummary>> = rel.iter().map(|r| rows(&r.people)).collect();
+        let both: Vec<(&[ParticipantSummary], &Value)> = rows
+            .iter()
+            .zip(rel)
+            .map(|(rs, r)| (rs.as_slice(), &r.report))
+            .collect();
+        super::tests::pattern_attack_releases(&both)
+    };
+    let open = unprotected(&months, min);
+    let found = pairs(&open);
+    assert!(
+        found
+            .iter()
+            .any(|f| f.starts_with("#0 program enrolment.active − enrolment.with_outcome = 8")),
+        "{found:?}"
+    );
+    let rel = publish_in_order(&months, min);
+    assert_eq!(pairs(&rel), Vec::<String>::new());
+    // The first month shows retention. (The second month's "with a recent weigh-in" differs
+    // from the first's by 5 people, so the ledger hides it.)
+    let e = &rel[0].report["program"]["stats"]["enrolment"];
+    assert_eq!(e["with_outcome"]["value"], 269);
+    assert!(e["retention_percent"]["value"].is_f64(), "{e}");
+    assert!(rel[1].report["program"]["stats"]["enrolment"]["with_outcome"]["suppressed"] == true);
+}

@@ -82,6 +82,10 @@ pub struct CellTable {
     /// shown cells its hiding forces through relations whose other members are shown zeros
     /// (refreshed by [`CellTable::refresh_costs`]).
     cost: Vec<u8>,
+    /// Cells taken as complements only when no other cell will do (empty: none), set by the
+    /// search of [`CellTable::apply_with_ranges`] for a result that shows a headline count the
+    /// greedy choices hid.
+    keep: Vec<bool>,
 }
 
 /// Most work the suppression of one table may take, in multiply-adds as counted by
@@ -95,6 +99,13 @@ pub struct CellTable {
 /// which is always safe, and the group report says why. Counted, not timed, so a run's output
 /// does not depend on the machine.
 pub const WORK_LIMIT: f64 = 2.0e11;
+
+/// Most hidden counts [`CellTable::apply_with_ranges`] tries to keep shown, one at a time,
+/// after the greedy choices hid them (each try is two more runs of the suppression). Program
+/// choice: the highest ranked are enrolment, started and with a recent weigh-in of the program
+/// and the sections; twelve covers those of the program and three sections, or reaches the
+/// milestones and bins when the headline is shown.
+const KEEP_TRIES: usize = 12;
 
 impl CellTable {
     /// An empty table.
@@ -161,13 +172,20 @@ impl CellTable {
         }
     }
 
-    /// Order in which shown cells are taken as complements (least first): a headline cell last
-    /// while `protect` is set, then non-zero before zero, then cost, value and id.
-    fn rank(&self, c: CellId) -> (bool, bool, u8, u64, CellId) {
+    /// Whether `c` is taken as a complement only when no other cell will do (see
+    /// [`CellTable::apply_with_ranges`]'s search).
+    fn kept(&self, c: CellId) -> bool {
+        self.keep.get(c).copied().unwrap_or(false)
+    }
+
+    /// Order in which shown cells are taken as complements (least first): a kept cell last,
+    /// then a headline cell while `protect` is set, then non-zero before zero, then cost, value
+    /// and id.
+    fn rank(&self, c: CellId) -> (bool, bool, bool, u8, u64, CellId) {
         let cell = &self.cells[c];
         let cost = self.cost(c);
         let headline = self.protect && self.headline_rank.is_some_and(|h| cost >= h);
-        (headline, cell.value == 0, cost, cell.value, c)
+        (self.kept(c), headline, cell.value == 0, cost, cell.value, c)
     }
 
     /// Recomputes each cell's cost for `protect`. A relation whose members other than two
@@ -346,12 +364,101 @@ impl CellTable {
                 best = Some((t, ranges));
             }
         }
-        let (t, ranges) = best.expect("at least one mode");
+        let (mut t, mut ranges) = best.expect("at least one mode");
+        // Then a search over counts the chosen result hides though they are not small
+        // themselves: each in turn (highest rank first, at most `KEEP_TRIES`) is kept — taken
+        // as a complement only when no other cell will do — together with those kept before
+        // and every count of its rank or above the chosen result shows (not to lose one for
+        // another), and the suppression runs again both ways by headline cost. A result that
+        // hides fewer cells of the highest rank, then of the next … (`hidden_score`) replaces
+        // the chosen one. The greedy choices cannot trade one headline count for several lower
+        // ones: in a month with 8 active people without a recent weigh-in (active 277, with
+        // one 269, withdrawn 23), keeping "with a recent weigh-in" means hiding "active",
+        // "withdrawn" and the adherence n (the same people as active) instead, and every greedy
+        // way hid it through started = with + without. Only the choice changes: every result
+        // passes the same checks. The search stops once it has spent twice the work of the
+        // four runs above, and is skipped once the work spent nears the limit, so a large
+        // table keeps its budget for the checks.
+        let modes_work = work - base;
+        if self.headline_rank.is_some() && !t.exhausted && work < WORK_LIMIT / 8.0 {
+            let mut order: Vec<CellId> = (0..self.cells.len())
+                .filter(|&c| {
+                    let cell = &self.cells[c];
+                    !cell.suppressed && !cell.phantom && cell.value >= u64::from(min_cell_size)
+                })
+                .collect();
+            order.sort_by_key(|&c| (std::cmp::Reverse(self.cells[c].priority), c));
+            let mut keep = t.keep.clone();
+            keep.resize(self.cells.len(), false);
+            let mut tries = 0;
+            for c in order {
+                if !t.cells[c].suppressed {
+                    continue;
+                }
+                if tries == KEEP_TRIES
+                    || work - base - modes_work >= (2.0 * modes_work).max(WORK_LIMIT / 1000.0)
+                    || work >= WORK_LIMIT / 8.0
+                {
+                    break;
+                }
+                tries += 1;
+                let p = self.cells[c].priority;
+                let mut trial = keep.clone();
+                trial[c] = true;
+                for (x, k) in trial.iter_mut().enumerate() {
+                    if self.cells[x].priority >= p && !t.cells[x].suppressed {
+                        *k = true;
+                    }
+                }
+                self.close_keep(&mut trial, min_cell_size);
+                for la in [false, true] {
+                    let mut u = self.clone();
+                    u.keep = trial.clone();
+                    u.lookahead = la;
+                    u.protect = true;
+                    let r = u.apply_with_ranges_once(min_cell_size);
+                    work += u.work - base;
+                    if !u.exhausted && u.hidden_score() < t.hidden_score() {
+                        keep = trial.clone();
+                        (t, ranges) = (u, r);
+                    }
+                }
+            }
+        }
         *self = t;
         self.lookahead = lookahead;
         self.protect = protect;
         self.work = work;
         ranges
+    }
+
+    /// Adds to `keep` every cell whose hiding would force hiding a kept one: a relation none
+    /// of whose members is hidden now or small (1 … min − 1, hidden by the primary rule) and
+    /// whose members other than that cell are all kept and non-zero (no zero there to take as
+    /// the complement instead). "Without a recent weigh-in" beside a kept number started and a
+    /// kept "with a recent weigh-in" (started = with + without) is kept too: hidden, it would
+    /// take one of them. Repeated until nothing is added.
+    fn close_keep(&self, keep: &mut [bool], min_cell_size: u32) {
+        let min = u64::from(min_cell_size);
+        let closed = |c: &Cell| c.suppressed || (c.value >= 1 && c.value < min);
+        loop {
+            let mut added = false;
+            for r in &self.relations {
+                if r.members().any(|m| closed(&self.cells[m])) {
+                    continue;
+                }
+                let open: Vec<CellId> = r.members().filter(|&m| !keep[m]).collect();
+                if let [x] = open[..]
+                    && r.members().all(|m| m == x || self.cells[m].value != 0)
+                {
+                    keep[x] = true;
+                    added = true;
+                }
+            }
+            if !added {
+                break;
+            }
+        }
     }
 
     /// Hidden cells (not differences) by rank, highest rank first: compared lexicographically,
@@ -955,16 +1062,25 @@ impl CellTable {
             return Some(first);
         }
         let rank = |c: CellId| self.rank(c);
-        // (highest rank hidden, cells hidden), the candidate's own rank, the candidate.
-        type Choice = ((u8, usize), (bool, bool, u8, u64, CellId), CellId);
+        // Whether the candidate is kept, (highest rank hidden, cells hidden), the candidate's
+        // own rank, the candidate: a kept cell only when every candidate is.
+        type Choice = (
+            bool,
+            (u8, usize),
+            (bool, bool, bool, u8, u64, CellId),
+            CellId,
+        );
         let mut best: Option<Choice> = None;
         for c in candidates {
-            let key = (self.cascade(c), rank(c), c);
-            if best.as_ref().is_none_or(|b| (key.0, key.1) < (b.0, b.1)) {
+            let key = (self.kept(c), self.cascade(c), rank(c), c);
+            if best
+                .as_ref()
+                .is_none_or(|b| (key.0, key.1, key.2) < (b.0, b.1, b.2))
+            {
                 best = Some(key);
             }
         }
-        best.map(|b| b.2)
+        best.map(|b| b.3)
     }
 
     /// What hiding `c` forces through relations left with one hidden member, each taking its
@@ -1021,7 +1137,12 @@ impl CellTable {
     /// enrolment and weight change.
     fn complement_for(&mut self, u: CellId, suppressed: &[bool]) -> Option<CellId> {
         let near = self.complement_near(u)?;
-        let bar = self.cost(near);
+        // A kept cell is taken only when nothing else will do: every other cell is cheaper.
+        let bar = if self.kept(near) {
+            u8::MAX
+        } else {
+            self.cost(near)
+        };
         let mut seen_cells = vec![false; self.cells.len()];
         let mut seen_rel = vec![false; self.relations.len()];
         let mut frontier = vec![u];
@@ -1045,7 +1166,7 @@ impl CellTable {
                     let c = &self.cells[m];
                     if c.suppressed {
                         next.push(m);
-                    } else if c.value != 0 && self.cost(m) < bar {
+                    } else if c.value != 0 && self.cost(m) < bar && !self.kept(m) {
                         candidates.push((self.cost(m), level, c.value, m));
                     }
                 }

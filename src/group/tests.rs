@@ -1329,3 +1329,292 @@ fn a_site_and_a_team_of_the_same_people_hide_the_same_counts() {
     }
     assert!(compared > 0, "some counts are hidden");
 }
+
+/// A month of a program of 300 people (the 300-person demo's September): 23 withdrawn, 8
+/// active people without a recent weigh-in (a small count nobody prints, active − with a
+/// recent weigh-in), 269 with one; adherence data for the active people only (the first three
+/// measures), attendance for all. One site, or the same people in three sites.
+pub(super) fn a_later_month(sites: usize) -> Vec<ParticipantSummary> {
+    let names = ["Harbour Depot", "Kiln Row", "North Office"];
+    // (people, withdrawn, recent weigh-in, % change at the time point)
+    let groups: [(usize, bool, bool, f64); 8] = [
+        (23, true, false, 0.0),
+        (8, false, false, 0.0),
+        (10, false, true, -11.0),
+        (51, false, true, -8.0),
+        (62, false, true, -6.0),
+        (83, false, true, -4.0),
+        (57, false, true, -1.5),
+        (6, false, true, 1.0),
+    ];
+    let mut rows = Vec::new();
+    for (n, withdrawn, recent, change) in groups {
+        for _ in 0..n {
+            let i = rows.len();
+            let baseline = 70.0 + (i % 37) as f64;
+            let outcome = recent.then_some(baseline * (1.0 + change / 100.0));
+            let mut r = person(names[i % sites], baseline, outcome);
+            r.withdrawn = withdrawn;
+            r.last_observed_kg = Some(baseline * (1.0 + change / 150.0));
+            let active = (!withdrawn).then_some(());
+            r.activity_minutes_per_week = active.map(|_| 100.0 + (i % 50) as f64);
+            r.weigh_ins_per_week = active.map(|_| 1.0 + (i % 6) as f64);
+            r.food_log_days_per_week = active.map(|_| (i % 8) as f64);
+            r.attendance_percent = Some((i % 100) as f64);
+            r.in_plateau = (i % 10 < 7).then_some(i % 10 < 5);
+            r.clinical_flags = u32::from(i % 19 == 0);
+            rows.push(r);
+        }
+    }
+    rows
+}
+
+/// An attacker who knows, for every person, which counts of which section they are in (who
+/// withdrew, who has data, who is in which bin — the worst case of the README's attacker, who
+/// knows membership patterns), but not how many people share each pattern. The sizes of the
+/// patterns are the unknowns (non-negative; a pattern nobody has is 0); every count the report
+/// prints, exact or as a range, is the sum of its patterns. A linear program per count and per
+/// difference of two nested counts of one section (`outer − inner`, with `inner`'s people all
+/// in `outer`: active − with a recent weigh-in) gives the smallest and largest value. Returns
+/// those of 1 … min − 1 people left with fewer than three possible values (or whose truth is
+/// outside them). Independent of the suppression code: memberships are written again here from
+/// the report's definitions.
+fn pattern_attack(rows: &[ParticipantSummary], report: &Value) -> Vec<String> {
+    pattern_attack_releases(&[(rows, report)])
+}
+
+/// [`pattern_attack`] over several releases at once: a person is the same person in every
+/// release (matched by pseudonym), and is in no count of a release without them. Targets are
+/// each release's counts and nested differences.
+pub(super) fn pattern_attack_releases(releases: &[(&[ParticipantSummary], &Value)]) -> Vec<String> {
+    use microlp::{ComparisonOp, OptimizationDirection, Problem, SolveOutcome};
+    let min = releases[0].1["min_cell_size"].as_u64().unwrap();
+    let key = |r: &ParticipantSummary, i: usize| r.pseudonym.unwrap_or(i as u64);
+    let people: Vec<u64> = releases
+        .iter()
+        .flat_map(|(rows, _)| rows.iter().enumerate().map(|(i, r)| key(r, i)))
+        .collect::<std::collections::BTreeSet<u64>>()
+        .into_iter()
+        .collect();
+    // Who each count of a section counts.
+    let counts_of = |r: &ParticipantSummary, stats: &Value| -> BTreeMap<String, bool> {
+        let mut m = BTreeMap::new();
+        let started = r.started && r.baseline_kg.is_some_and(|b| b > 0.0);
+        let with = started && r.outcome_kg.is_some();
+        let b = r.baseline_kg.unwrap_or(1.0);
+        let change = 100.0 * (r.outcome_kg.unwrap_or(b) - b) / b;
+        let e = |k: &str| format!("enrolment.{k}");
+        m.insert(e("enrolled"), true);
+        m.insert(e("active"), !r.withdrawn);
+        m.insert(e("withdrawn"), r.withdrawn);
+        m.insert(e("started"), started);
+        m.insert(e("not_started"), !started);
+        m.insert(e("with_outcome"), with);
+        m.insert(e("without_outcome"), started && !with);
+        for ms in stats["milestones"].as_array().unwrap() {
+            let k = ms["loss_at_least_percent"].as_f64().unwrap();
+            let reached = change <= -k + 1e-9;
+            m.insert(format!("milestone.{k}.reached"), started && reached);
+            m.insert(format!("milestone.{k}.not_reached"), started && !reached);
+        }
+        for (i, bin) in stats["histogram"]["bins"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .enumerate()
+        {
+            let lo = bin["lower_percent"].as_f64();
+            let hi = bin["upper_percent"].as_f64();
+            // Loss bins hold their upper bound and not their lower one; "−3 to 0" holds
+            // neither, the gain bins their lower one only.
+            let above = lo.is_none_or(|l| if l < 0.0 { change > l } else { change >= l });
+            let below = hi.is_none_or(|h| if h < 0.0 { change <= h } else { change < h });
+            m.insert(format!("bin.{i}"), started && above && below);
+        }
+        for (name, v) in [
+            ("activity_minutes_per_week", r.activity_minutes_per_week),
+            ("weigh_ins_per_week", r.weigh_ins_per_week),
+            ("food_log_days_per_week", r.food_log_days_per_week),
+            ("attendance_percent", r.attendance_percent),
+        ] {
+            m.insert(format!("adherence.{name}"), v.is_some());
+        }
+        m.insert("plateau.with_verdict".into(), r.in_plateau.is_some());
+        m.insert("plateau.in_plateau".into(), r.in_plateau == Some(true));
+        m.insert("plateau.not_in_plateau".into(), r.in_plateau == Some(false));
+        m.insert("plateau.insufficient_data".into(), r.in_plateau.is_none());
+        m.insert("flags".into(), r.clinical_flags > 0);
+        m
+    };
+    // Every (release and section, count) with the people it counts.
+    let mut counts: Vec<((String, String), Value, Vec<bool>)> = Vec::new();
+    for (n, (rows, report)) in releases.iter().enumerate() {
+        let row_of: HashMap<u64, &ParticipantSummary> = rows
+            .iter()
+            .enumerate()
+            .map(|(i, r)| (key(r, i), r))
+            .collect();
+        for (id, stats) in &shown_sections(report) {
+            let cells = section_cells(stats);
+            let site = id
+                .split('=')
+                .nth(1)
+                .map(|s| s.trim_matches('"').to_string());
+            let member: Vec<BTreeMap<String, bool>> = people
+                .iter()
+                .map(|p| match row_of.get(p) {
+                    Some(r) => {
+                        let inside = site.as_ref().is_none_or(|s| r.groups["site"] == *s);
+                        let mut m = counts_of(r, stats);
+                        m.values_mut().for_each(|v| *v &= inside && r.enrolled);
+                        m
+                    }
+                    None => counts_of(&ParticipantSummary::default(), stats)
+                        .into_keys()
+                        .map(|k| (k, false))
+                        .collect(),
+                })
+                .collect();
+            let id = if releases.len() > 1 {
+                format!("#{n} {id}")
+            } else {
+                id.clone()
+            };
+            for (name, v) in cells {
+                let who = member.iter().map(|m| m[&name]).collect();
+                counts.push(((id.clone(), name), v, who));
+            }
+        }
+    }
+    let mut patterns: BTreeMap<Vec<bool>, usize> = BTreeMap::new();
+    for p in 0..people.len() {
+        let pat: Vec<bool> = counts.iter().map(|c| c.2[p]).collect();
+        *patterns.entry(pat).or_default() += 1;
+    }
+    let patterns: Vec<(Vec<bool>, usize)> = patterns.into_iter().collect();
+    let bounds = |v: &Value| -> Option<(f64, f64)> {
+        if let Some(x) = v["value"].as_u64() {
+            return Some((x as f64, x as f64));
+        }
+        let lo = v["at_least"].as_f64()?;
+        let hi = v["at_most"].as_f64()?;
+        Some((lo, hi))
+    };
+    // Targets: every count, and the difference of every two nested counts (in one section,
+    // across sections and across releases).
+    let mut targets: Vec<(String, Vec<usize>)> = Vec::new();
+    for (j, ((id, name), _, _)) in counts.iter().enumerate() {
+        let of = |k: usize| -> Vec<usize> {
+            (0..patterns.len()).filter(|&q| patterns[q].0[k]).collect()
+        };
+        targets.push((format!("{id} {name}"), of(j)));
+        for (k, ((id2, name2), _, _)) in counts.iter().enumerate() {
+            let nested = k != j && patterns.iter().all(|(pat, _)| !pat[k] || pat[j]);
+            if nested {
+                let diff: Vec<usize> = (0..patterns.len())
+                    .filter(|&q| patterns[q].0[j] && !patterns[q].0[k])
+                    .collect();
+                let name2 = if id2 == id {
+                    name2.clone()
+                } else {
+                    format!("{id2} {name2}")
+                };
+                targets.push((format!("{id} {name} − {name2}"), diff));
+            }
+        }
+    }
+    let mut found = Vec::new();
+    for (what, regions) in targets {
+        let truth: usize = regions.iter().map(|&q| patterns[q].1).sum();
+        if truth == 0 || truth as u64 >= min {
+            continue;
+        }
+        let mut ends = [0.0; 2];
+        for (i, dir) in [
+            OptimizationDirection::Minimize,
+            OptimizationDirection::Maximize,
+        ]
+        .into_iter()
+        .enumerate()
+        {
+            let mut p = Problem::new(dir);
+            let vars: Vec<microlp::Variable> = (0..patterns.len())
+                .map(|q| {
+                    p.add_var(
+                        f64::from(u8::from(regions.contains(&q))),
+                        (0.0, f64::INFINITY),
+                    )
+                })
+                .collect();
+            for (j, (_, v, _)) in counts.iter().enumerate() {
+                let Some((lo, hi)) = bounds(v) else { continue };
+                let terms: Vec<(microlp::Variable, f64)> = (0..patterns.len())
+                    .filter(|&q| patterns[q].0[j])
+                    .map(|q| (vars[q], 1.0))
+                    .collect();
+                if terms.is_empty() {
+                    continue;
+                }
+                p.add_constraint(terms.as_slice(), ComparisonOp::Ge, lo);
+                p.add_constraint(terms.as_slice(), ComparisonOp::Le, hi);
+            }
+            ends[i] = match p.solve() {
+                Ok(SolveOutcome::Solution(s)) => s.objective(),
+                Err(microlp::Error::Unbounded) => f64::INFINITY,
+                other => panic!("the printed figures are inconsistent: {other:?}"),
+            };
+        }
+        let (lo, hi) = ((ends[0] - 1e-6).ceil(), (ends[1] + 1e-6).floor());
+        let t = truth as f64;
+        if t < lo || t > hi || hi < lo + 2.0 {
+            found.push(format!("{what} = {truth} in {lo}–{hi}"));
+        }
+    }
+    found
+}
+
+/// A later month of a 300-person program: active 277, with a recent weigh-in 269, so the 8
+/// active people without one are a small count nobody prints (active − with), and withdrawn
+/// 23. Every greedy choice of complements hid "with a recent weigh-in" — the program's
+/// retention and completers — through started = with + without, and also "active" and
+/// "withdrawn". Keeping "with a recent weigh-in" and "without" shown and hiding "active",
+/// "withdrawn" and the adherence n (the same people as active) instead protects the 8 as well
+/// and hides fewer important counts; the suppression's search over headline counts now finds
+/// it. The attackers read every printed count and range, and one of them knows who is in
+/// which count (the nesting of with in active, adherence data for the active only).
+#[test]
+fn a_later_month_with_few_active_without_a_recent_weigh_in_shows_retention() {
+    for sites in [1, 3] {
+        let rows = a_later_month(sites);
+        let o = opts(11, &["site"]);
+        let report = summarize(&rows, &o);
+        let json = serde_json::to_value(&report).unwrap();
+        let truth = serde_json::to_value(build(&rows, &o, false, &History::default()).0).unwrap();
+        assert_no_recovery(&json, &truth);
+        assert_eq!(range_attack(&json, &truth), Vec::<String>::new());
+        assert_eq!(
+            pattern_attack(&rows, &json),
+            Vec::<String>::new(),
+            "{sites} sites"
+        );
+        // The attacker is real: it finds the 8 when active and with are both printed.
+        let mut open = truth.clone();
+        primary_only(&mut open, 11);
+        let found = pattern_attack(&rows, &open);
+        assert!(
+            found
+                .iter()
+                .any(|f| f.starts_with("program enrolment.active − enrolment.with_outcome = 8")),
+            "{found:?}"
+        );
+        let st = report.program.stats.as_ref().unwrap();
+        assert_eq!(val(&st.enrolment.enrolled), 300);
+        assert_eq!(val(&st.enrolment.started), 300);
+        assert_eq!(val(&st.enrolment.with_outcome), 269, "{sites} sites");
+        assert!((val(&st.enrolment.retention_percent) - 89.7).abs() < 0.05);
+        val(&st.weight_change.completers.percent.mean);
+        val(&st.weight_change.bocf.percent.mean);
+        // What pays for it: the active count and the adherence n.
+        assert!(st.enrolment.active.value().is_none());
+    }
+}
