@@ -167,6 +167,18 @@ pub struct Ledger {
     _lock: std::fs::File,
 }
 
+/// `ledger.json`'s bytes read as a ledger of this format.
+fn parse_ledger(path: &Path, bytes: &[u8]) -> std::io::Result<LedgerFile> {
+    let f: LedgerFile = serde_json::from_slice(bytes).map_err(|e| io_err(path, e))?;
+    if f.format != FORMAT {
+        return Err(io_err(
+            path,
+            format!("format {} (expected {FORMAT})", f.format),
+        ));
+    }
+    Ok(f)
+}
+
 impl Ledger {
     /// Whether `dir` can hold the ledger, checked without creating or locking anything, so a
     /// run can be refused when it starts rather than after every participant was computed (a
@@ -179,17 +191,7 @@ impl Ledger {
         }
         let ledger_path = dir.join(LEDGER_FILE);
         match crate::limits::read_limited(&ledger_path, LEDGER_LIMIT) {
-            Ok(bytes) => {
-                let f: LedgerFile =
-                    serde_json::from_slice(&bytes).map_err(|e| io_err(&ledger_path, e))?;
-                if f.format != FORMAT {
-                    return Err(io_err(
-                        &ledger_path,
-                        format!("format {} (expected {FORMAT})", f.format),
-                    ));
-                }
-                Ok(())
-            }
+            Ok(bytes) => parse_ledger(&ledger_path, &bytes).map(|_| ()),
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
             Err(e) => Err(io_err(&ledger_path, e)),
         }
@@ -271,17 +273,7 @@ impl Ledger {
         // until memory ran out, and a link to another program's ledger was used as this one.
         let read = |p: &Path| crate::limits::read_limited(p, LEDGER_LIMIT);
         let releases = match read(&ledger_path) {
-            Ok(bytes) => {
-                let f: LedgerFile =
-                    serde_json::from_slice(&bytes).map_err(|e| io_err(&ledger_path, e))?;
-                if f.format != FORMAT {
-                    return Err(io_err(
-                        &ledger_path,
-                        format!("format {} (expected {FORMAT})", f.format),
-                    ));
-                }
-                f.releases
-            }
+            Ok(bytes) => parse_ledger(&ledger_path, &bytes)?.releases,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
                 new = true;
                 Vec::new()

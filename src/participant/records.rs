@@ -383,6 +383,18 @@ fn in_window<T>(
         } else {
             format!("{lo} to {hi}")
         };
+        // A date the profile sets (`key`): rows `what` it.
+        let profile_bound = |what: &str, on: NaiveDate, side: &str, key: &str| {
+            (
+                format!("date {lo} is {what} ({on}); the row is dropped"),
+                format!(
+                    "{n} rows are dated {what} ({on}; {dates}, the first at this line); they \
+                     are not counted"
+                ),
+                format!("a date {side} {on}"),
+                format!("check the date, or the `{key}` date in profile.yaml"),
+            )
+        };
         let (one, many, expected, hint) = match kind {
             Out::Future => (
                 format!(
@@ -396,26 +408,15 @@ fn in_window<T>(
                 ),
                 format!("a date on or before {}", w.as_of),
                 "check the year; run with a later `--as-of` if the data are real (a re-issue \
-                 of an earlier month leaves later rows out by design)",
+                 of an earlier month leaves later rows out by design)"
+                    .to_string(),
             ),
-            Out::BeforeEnrolment(e) => (
-                format!("date {lo} is before enrolment ({e}); the row is dropped"),
-                format!(
-                    "{n} rows are dated before enrolment ({e}; {dates}, the first at this \
-                     line); they are not counted"
-                ),
-                format!("a date on or after {e}"),
-                "check the date, or the `enrolled` date in profile.yaml",
-            ),
-            Out::AfterWithdrawal(x) => (
-                format!("date {lo} is after withdrawal ({x}); the row is dropped"),
-                format!(
-                    "{n} rows are dated after withdrawal ({x}; {dates}, the first at this \
-                     line); they are not counted"
-                ),
-                format!("a date on or before {x}"),
-                "check the date, or the `withdrew` date in profile.yaml",
-            ),
+            Out::BeforeEnrolment(e) => {
+                profile_bound("before enrolment", e, "on or after", "enrolled")
+            }
+            Out::AfterWithdrawal(x) => {
+                profile_bound("after withdrawal", x, "on or before", "withdrew")
+            }
         };
         diags.push(
             ctx.warning(if n == 1 { one } else { many })
