@@ -783,6 +783,8 @@ pub fn load_opened(
                         &mut p,
                         &program.def.report.group_by,
                         &pctx,
+                        crate::program::load::key_line(&text, "groups"),
+                        &mut diags,
                     );
                     p
                 },
@@ -887,11 +889,14 @@ pub fn load_opened(
 /// (`Site:` for `group_by: [site]`, as YAML keys are typed by hand): read as the program's key,
 /// with a note. Compared as written, the participant had no site: counted as "(not recorded)",
 /// one short at their own site, with no word. A key written two ways in one profile is left
-/// as it is (which one counts cannot be known).
+/// as it is (which one counts cannot be known), with a warning: the participant is counted
+/// under "(not recorded)" for that key.
 fn group_keys_as_the_program_names_them(
     profile: &mut cohortpress_metric_api::Profile,
     group_by: &[String],
     ctx: &FileCtx,
+    groups_line: Option<u64>,
+    diags: &mut Vec<Diagnostic>,
 ) {
     let fold = |k: &str| crate::text::fold_for_comparison(&k.replace(['_', '-'], " "));
     for key in group_by {
@@ -912,6 +917,26 @@ fn group_keys_as_the_program_names_them(
                 crate::diag::printable(written)
             ));
             profile.groups.insert(key.clone(), v);
+        } else if near.len() > 1 {
+            let ways: Vec<String> = near
+                .iter()
+                .map(|k| format!("`{}`", crate::diag::printable(k)))
+                .collect();
+            let d = ctx
+                .warning(format!(
+                    "group `{key}` is written {} ways ({}), so which value counts cannot be \
+                     known; the participant is counted under \"(not recorded)\" for `{key}`",
+                    near.len(),
+                    ways.join(", ")
+                ))
+                .field("groups")
+                .expected(format!("`{key}:` once"))
+                .found(ways.join(", "))
+                .hint(format!("keep one of them, spelled `{key}`"));
+            diags.push(match groups_line {
+                Some(line) => d.at(line, None),
+                None => d,
+            });
         }
     }
 }

@@ -530,5 +530,21 @@ fn a_group_key_in_other_case_or_spacing_is_read_as_report_group_by_names_it() {
     let both = format!("{PROFILE}groups: {{ Site: Kiln Row, SITE: North }}\n");
     fs::write(dir.path.join("profile.yaml"), both).unwrap();
     let lp = load_participant(&p, &dir, as_of());
+    // ... and said, at the `groups` line: the participant is counted as "(not recorded)".
+    let warned: Vec<String> = lp
+        .diagnostics
+        .iter()
+        .filter(|d| d.message.contains("is written 2 ways"))
+        .map(|d| format!("{}:{:?}: {}", d.file, d.line, d.message))
+        .collect();
+    assert_eq!(warned.len(), 1, "{:?}", lp.diagnostics);
+    assert!(
+        warned[0].ends_with(
+            "profile.yaml:Some(6): group `site` is written 2 ways (`SITE`, `Site`), so which \
+             value counts cannot be known; the participant is counted under \"(not recorded)\" \
+             for `site`"
+        ),
+        "{warned:?}"
+    );
     assert!(!lp.data.expect("usable").profile.groups.contains_key("site"));
 }
