@@ -979,23 +979,11 @@ fn a_misspelt_field_in_an_override_fails_the_run_naming_template_and_line() {
 fn a_large_file_beside_the_templates_is_not_read() {
     let prog = ProgramTest::fixture("report-small");
     std::fs::create_dir(prog.dir.join("templates")).unwrap();
-    let own = BUILTIN
-        .iter()
-        .find(|(n, _)| *n == "participant.html.hbs")
-        .unwrap()
-        .1
-        .replace("<main>", "<main><p>OVERRIDE-MARKER-7732</p>");
-    std::fs::write(prog.dir.join("templates/participant.html.hbs"), own).unwrap();
-    // Sparse: 70 MiB long, nothing written.
-    std::fs::File::create(prog.dir.join("templates/kickoff-recording.mp4"))
-        .unwrap()
-        .set_len(70 * 1024 * 1024)
-        .unwrap();
-    use_template_folder(&prog);
-    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
-    assert_eq!(out.code, 0, "{}", out.stderr);
-    let html = std::fs::read_to_string(prog.dir.join("reports/participants/SG-003.html")).unwrap();
-    assert!(html.contains("OVERRIDE-MARKER-7732"));
+    runs_with_its_override_beside_a_large_file(
+        &prog,
+        "kickoff-recording.mp4",
+        "OVERRIDE-MARKER-7732",
+    );
 }
 
 /// The run's fingerprint hashed every `.hbs` file under the template folder, however deep
@@ -1005,38 +993,47 @@ fn a_large_file_beside_the_templates_is_not_read() {
 fn a_template_file_below_the_template_folders_is_not_read() {
     let prog = ProgramTest::fixture("report-small");
     std::fs::create_dir_all(prog.dir.join("templates/archive/2025")).unwrap();
+    runs_with_its_override_beside_a_large_file(
+        &prog,
+        "archive/2025/participant.html.hbs",
+        "OVERRIDE-MARKER-7733",
+    );
+}
+
+/// The built-in participant template's text.
+fn builtin_participant_template() -> &'static str {
+    BUILTIN
+        .iter()
+        .find(|(n, _)| *n == "participant.html.hbs")
+        .unwrap()
+        .1
+}
+
+/// Overrides the participant template with one carrying `marker`, puts a sparse 70 MiB file at
+/// `large` (relative to templates/), runs, and checks the override was used (exit 0).
+fn runs_with_its_override_beside_a_large_file(prog: &ProgramTest, large: &str, marker: &str) {
     std::fs::write(
         prog.dir.join("templates/participant.html.hbs"),
-        BUILTIN
-            .iter()
-            .find(|(n, _)| *n == "participant.html.hbs")
-            .unwrap()
-            .1
-            .replace("<main>", "<main><p>OVERRIDE-MARKER-7733</p>"),
+        builtin_participant_template().replace("<main>", &format!("<main><p>{marker}</p>")),
     )
     .unwrap();
     // Sparse: 70 MiB long, nothing written.
-    std::fs::File::create(prog.dir.join("templates/archive/2025/participant.html.hbs"))
+    std::fs::File::create(prog.dir.join("templates").join(large))
         .unwrap()
         .set_len(70 * 1024 * 1024)
         .unwrap();
-    use_template_folder(&prog);
+    use_template_folder(prog);
     let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
     assert_eq!(out.code, 0, "{}", out.stderr);
     let html = std::fs::read_to_string(prog.dir.join("reports/participants/SG-003.html")).unwrap();
-    assert!(html.contains("OVERRIDE-MARKER-7733"));
+    assert!(html.contains(marker));
 }
 
 #[test]
 fn overriding_one_template_leaves_the_others_built_in() {
     let prog = ProgramTest::fixture("report-small");
     std::fs::create_dir(prog.dir.join("templates")).unwrap();
-    let own = BUILTIN
-        .iter()
-        .find(|(n, _)| *n == "participant.html.hbs")
-        .unwrap()
-        .1
-        .replace("<main>", "<main><p>OVERRIDE-MARKER-7731</p>");
+    let own = builtin_participant_template().replace("<main>", "<main><p>OVERRIDE-MARKER-7731</p>");
     std::fs::write(prog.dir.join("templates/participant.html.hbs"), own).unwrap();
     use_template_folder(&prog);
     let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
@@ -1650,11 +1647,7 @@ fn html_and_pdf_carry_the_same_text() {
 fn a_template_override_changes_the_html_and_the_pdf() {
     let prog = ProgramTest::fixture("report-small");
     std::fs::create_dir(prog.dir.join("templates")).unwrap();
-    let builtin = BUILTIN
-        .iter()
-        .find(|(n, _)| *n == "participant.html.hbs")
-        .unwrap()
-        .1;
+    let builtin = builtin_participant_template();
     let old = "<h2 id=\"h-summary\">Where you stand</h2>";
     assert!(builtin.contains(old));
     let own = builtin.replace(
@@ -1705,11 +1698,7 @@ fn a_template_override_changes_the_html_and_the_pdf() {
 fn an_element_outside_the_pdf_subset_fails_the_run_naming_template_and_element() {
     let prog = ProgramTest::fixture("report-small");
     std::fs::create_dir(prog.dir.join("templates")).unwrap();
-    let own = BUILTIN
-        .iter()
-        .find(|(n, _)| *n == "participant.html.hbs")
-        .unwrap()
-        .1
+    let own = builtin_participant_template()
         .replace("<p class=\"lead\">", "<h4>Deep</h4><p class=\"lead\">");
     std::fs::write(prog.dir.join("templates/participant.html.hbs"), own).unwrap();
     use_template_folder(&prog);
