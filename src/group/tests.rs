@@ -620,16 +620,7 @@ fn site_values_written_with_other_case_or_spacing_are_one_group() {
         rows.push(p);
     }
     let r = summarize(&rows, &opts(11, &["site"]));
-    let labels: Vec<(&str, u64)> = r.splits[0]
-        .sections
-        .iter()
-        .map(|s| {
-            (
-                s.label.as_str(),
-                val(&s.stats.as_ref().unwrap().enrolment.started),
-            )
-        })
-        .collect();
+    let labels = started_by_section(&r);
     assert_eq!(
         labels,
         [
@@ -639,6 +630,20 @@ fn site_values_written_with_other_case_or_spacing_are_one_group() {
         ]
     );
     check(&rows, &opts(11, &["site"]));
+}
+
+/// Each section of the first split: its label and number started.
+fn started_by_section(r: &GroupReport) -> Vec<(&str, u64)> {
+    r.splits[0]
+        .sections
+        .iter()
+        .map(|s| {
+            (
+                s.label.as_str(),
+                val(&s.stats.as_ref().unwrap().enrolment.started),
+            )
+        })
+        .collect()
 }
 
 /// Values a reader cannot tell apart: a zero-width space or a soft hyphen pasted with the
@@ -671,16 +676,7 @@ fn site_values_that_differ_only_in_invisible_or_compatibility_characters_are_one
         rows.push(person(site, 60.0 + i as f64, Some(59.0 + i as f64)));
     }
     let r = summarize(&rows, &opts(11, &["site"]));
-    let labels: Vec<(&str, u64)> = r.splits[0]
-        .sections
-        .iter()
-        .map(|s| {
-            (
-                s.label.as_str(),
-                val(&s.stats.as_ref().unwrap().enrolment.started),
-            )
-        })
-        .collect();
+    let labels = started_by_section(&r);
     assert_eq!(
         labels,
         [
