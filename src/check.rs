@@ -20,6 +20,10 @@ pub struct CheckReport {
     pub participants: Vec<LoadedParticipant>,
     /// Problems found while listing `participants/` (bad folder names, stray files).
     pub discovery: Vec<Diagnostic>,
+    /// Problems of the folder the group-report ledger would be kept in (filled by
+    /// [`crate::cmd::check`], which knows the options): a run stops on them, with exit code 6,
+    /// before any participant is computed.
+    pub ledger: Vec<Diagnostic>,
 }
 
 impl CheckReport {
@@ -45,6 +49,7 @@ impl CheckReport {
         program
             .iter()
             .chain(&self.discovery)
+            .chain(&self.ledger)
             .chain(self.participants.iter().flat_map(|p| &p.diagnostics))
     }
 
@@ -101,6 +106,7 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
             program,
             participants: Vec::new(),
             discovery: Vec::new(),
+            ledger: Vec::new(),
         };
     };
     let (dirs, discovery) = participant::discover(prog);
@@ -124,5 +130,6 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
         program,
         participants,
         discovery,
+        ledger: Vec::new(),
     }
 }

@@ -15,7 +15,8 @@ pub const PARTICIPANT_ERRORS: i32 = 4;
 /// A metric module (built-in or external) failed for some participants; their other
 /// modules' results and reports were still written.
 pub const MODULE_FAILED: i32 = 5;
-/// Writing outputs failed; the previous outputs were left as they were.
+/// Writing outputs failed; the previous outputs were left as they were. From `check`: the
+/// group-report ledger's folder cannot be used, so a run would stop before computing anything.
 pub const OUTPUT_FAILED: i32 = 6;
 /// Another run holds the lock on the output folder.
 pub const LOCKED: i32 = 7;
@@ -31,6 +32,9 @@ pub struct Outcome {
     pub program_invalid: bool,
     /// Participants (or participant folders) left out because of errors in their inputs.
     pub participants_left_out: usize,
+    /// A folder the run writes cannot be used: from `check`, the group-report ledger's folder,
+    /// on which a run stops before computing anything.
+    pub output_unusable: bool,
     /// Module failures (participant × module); `check` runs no modules.
     pub module_failures: usize,
     /// Input warnings (values dropped or suspicious, stray files).
@@ -42,6 +46,8 @@ impl Outcome {
     pub fn exit_code(&self) -> i32 {
         if self.program_invalid {
             PROGRAM_INVALID
+        } else if self.output_unusable {
+            OUTPUT_FAILED
         } else if self.module_failures > 0 {
             MODULE_FAILED
         } else if self.participants_left_out > 0 {
@@ -79,7 +85,7 @@ pub const TABLE: &[(i32, &str)] = &[
     ),
     (
         OUTPUT_FAILED,
-        "writing outputs failed; previous outputs were left intact",
+        "writing outputs failed; previous outputs were left intact (from `check`: the group-report ledger's folder cannot be used, so a run would stop)",
     ),
     (LOCKED, "another run holds the lock on the output folder"),
     (INTERNAL, "internal error (a bug)"),

@@ -6,7 +6,7 @@ use crate::diag::{self, Diagnostic, Severity};
 use crate::exit_code;
 use chrono::NaiveDate;
 use std::io::Write;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// The exit code a check report calls for (see [`exit_code::Outcome`]).
 pub fn exit_code_of(report: &CheckReport) -> i32 {
@@ -27,19 +27,23 @@ pub fn exit_code_of(report: &CheckReport) -> i32 {
     exit_code::Outcome {
         program_invalid: report.program_invalid(),
         participants_left_out: left_out,
+        output_unusable: report.ledger.iter().any(|d| d.severity == Severity::Error),
         module_failures: 0,
         warnings,
     }
     .exit_code()
 }
 
-/// How `check` prints.
-#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+/// How `check` prints, and the option it shares with `run`.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
 pub struct CheckOptions {
     /// One JSON object per diagnostic (and per note) instead of text.
     pub json: bool,
     /// List clean participants and every diagnostic one by one.
     pub verbose: bool,
+    /// `--state DIR`, as given to `run`: the group-report ledger folder to judge (default: the
+    /// one a run without `--out` and `--state` uses).
+    pub state: Option<PathBuf>,
 }
 
 /// Examples shown per kind in the summary.
@@ -284,6 +288,13 @@ pub fn write_report_with(
             writeln!(out, "{d}")?;
         }
     }
+    if !report.ledger.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "group-report ledger:")?;
+        for d in &report.ledger {
+            writeln!(out, "{d}")?;
+        }
+    }
     let mut clean = 0;
     for p in &report.participants {
         let (e, w) = diag::count(&p.diagnostics);
@@ -454,6 +465,27 @@ pub fn run_check_with(
             report.program = Err(vec![d]);
             report.participants.clear();
             report.discovery.clear();
+        } else {
+            match ledger_problems(prog, opts.state.as_deref()) {
+                Ok(diags) => report.ledger = diags,
+                // `--state` refused as `run` refuses it: a wrong command line (exit 2).
+                Err(m) => {
+                    let d = Diagnostic::error("command line", m);
+                    let written = if opts.json {
+                        serde_json::to_writer(&mut *out, &d)
+                            .map_err(std::io::Error::from)
+                            .and_then(|()| writeln!(out))
+                    } else {
+                        writeln!(out, "{d}")
+                    };
+                    return match written {
+                        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => {
+                            exit_code::OUTPUT_FAILED
+                        }
+                        _ => exit_code::USAGE,
+                    };
+                }
+            }
         }
     }
     match write_report_with(&report, opts, out) {
@@ -463,6 +495,36 @@ pub fn run_check_with(
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => exit_code_of(&report),
         Err(_) => exit_code::OUTPUT_FAILED,
     }
+}
+
+/// The group-report ledger folder a run of this program would use — found as `run` finds it
+/// ([`crate::group::ledger::resolve_dir`], with `--state` when given, else as a run without
+/// `--out`: `report.state_dir`, else the ledger of `report.out`) — judged as a run judges it
+/// when it starts ([`crate::group::ledger::Ledger::folder_problem`]): a run stops on such a
+/// folder with exit code 6 before computing anything, after `check` had passed the program.
+/// `Err` (the message) when `--state` itself is refused (as `run` refuses it, a usage error).
+fn ledger_problems(
+    prog: &crate::program::Program,
+    state: Option<&Path>,
+) -> Result<Vec<Diagnostic>, String> {
+    if let Some(m) = crate::run::plan::tilde_message("--state", state) {
+        return Err(m);
+    }
+    let out_dir = prog.root.join(&prog.def.report.out);
+    let dir = crate::group::ledger::resolve_dir(state, prog, &out_dir)?;
+    Ok(match crate::group::ledger::Ledger::folder_problem(&dir) {
+        Ok(()) => Vec::new(),
+        Err(p) => vec![
+            Diagnostic::error(
+                p.path.display().to_string(),
+                format!("group-report ledger: {}", p.why),
+            )
+            .hint(
+                "`run` stops on this ledger folder with exit code 6 before computing \
+                     anything",
+            ),
+        ],
+    })
 }
 
 #[cfg(test)]
@@ -526,6 +588,7 @@ mod tests {
         let opts = CheckOptions {
             json: false,
             verbose: true,
+            ..Default::default()
         };
         run_check_with(tmp.path(), as_of(), &opts, &mut verbose);
         assert!(String::from_utf8(verbose).unwrap().contains("P1: usable\n"));
@@ -657,6 +720,7 @@ mod tests {
         let opts = CheckOptions {
             json: true,
             verbose: false,
+            ..Default::default()
         };
         run_check_with(tmp.path(), as_of(), &opts, &mut json);
         let lines: Vec<serde_json::Value> = String::from_utf8(json)
@@ -817,6 +881,7 @@ mod tests {
         let opts = CheckOptions {
             json: false,
             verbose: true,
+            ..Default::default()
         };
         run_check_with(tmp.path(), as_of(), &opts, &mut verbose);
         let verbose = String::from_utf8(verbose).unwrap();

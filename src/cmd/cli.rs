@@ -31,6 +31,11 @@ pub enum Command {
         /// List every diagnostic one by one, and the participants with nothing to report.
         #[arg(long)]
         verbose: bool,
+        /// The group-report ledger's folder, as given to `run --state`: `check` reports a
+        /// folder the run would refuse. Default: the one a run without `--out` uses
+        /// (program.yaml's `report.state_dir`, else the ledger beside `report.out`).
+        #[arg(long, value_name = "DIR")]
+        state: Option<PathBuf>,
     },
     /// Compute every metric and write the reports, tidy metrics and manifest.
     Run(RunArgs),

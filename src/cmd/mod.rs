@@ -20,6 +20,7 @@ pub fn dispatch(cli: Cli) -> i32 {
             as_of,
             format,
             verbose,
+            state,
         } => {
             init_logging(false, LogFormat::Text);
             let as_of = as_of.unwrap_or_else(today);
@@ -27,6 +28,7 @@ pub fn dispatch(cli: Cli) -> i32 {
             let opts = check::CheckOptions {
                 json: format == CheckFormat::Json,
                 verbose,
+                state,
             };
             check::run_check_with(&program, as_of, &opts, &mut stdout.lock())
         }

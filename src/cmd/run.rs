@@ -52,6 +52,7 @@ pub fn summary_code(s: &RunSummary) -> i32 {
     exit_code::Outcome {
         program_invalid: false,
         participants_left_out: s.participants_with_errors + s.skipped_folders,
+        output_unusable: false,
         module_failures: s.module_failures,
         warnings: s.warnings + s.program_warnings,
     }

@@ -169,14 +169,32 @@ pub struct Ledger {
 
 /// `ledger.json`'s bytes read as a ledger of this format.
 fn parse_ledger(path: &Path, bytes: &[u8]) -> std::io::Result<LedgerFile> {
-    let f: LedgerFile = serde_json::from_slice(bytes).map_err(|e| io_err(path, e))?;
+    parse_ledger_why(bytes).map_err(|why| io_err(path, why))
+}
+
+/// [`parse_ledger`] with the reason alone (the caller names the file).
+fn parse_ledger_why(bytes: &[u8]) -> Result<LedgerFile, String> {
+    let f: LedgerFile = serde_json::from_slice(bytes).map_err(|e| e.to_string())?;
     if f.format != FORMAT {
-        return Err(io_err(
-            path,
-            format!("format {} (expected {FORMAT})", f.format),
-        ));
+        return Err(format!("format {} (expected {FORMAT})", f.format));
     }
     Ok(f)
+}
+
+/// Why a folder cannot hold the ledger: the file or folder at fault and the reason, in the
+/// words a run stops with (`group-report ledger: PATH: WHY`).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct FolderProblem {
+    /// The ledger folder, or the file in it that is at fault (`ledger.json`).
+    pub path: PathBuf,
+    /// What is wrong and what to do.
+    pub why: String,
+}
+
+impl From<FolderProblem> for std::io::Error {
+    fn from(p: FolderProblem) -> Self {
+        io_err(&p.path, p.why)
+    }
 }
 
 impl Ledger {
@@ -184,41 +202,52 @@ impl Ledger {
     /// run can be refused when it starts rather than after every participant was computed (a
     /// `--state` naming a file failed only then, with "File exists (os error 17)"): a folder
     /// of its own (missing, or holding only the ledger's files) and, when there, a
-    /// `ledger.json` that reads. [`Ledger::open`] checks it again under the lock.
+    /// `ledger.json` that reads. [`Ledger::open`] checks it again under the lock. `check`
+    /// reports the same problem ([`Ledger::folder_problem`]).
     pub fn check_folder(dir: &Path) -> std::io::Result<()> {
+        Self::folder_problem(dir).map_err(std::io::Error::from)
+    }
+
+    /// [`Ledger::check_folder`] with the file at fault and the reason apart.
+    pub fn folder_problem(dir: &Path) -> Result<(), FolderProblem> {
         if !Self::own_folder(dir)? {
             return Ok(());
         }
         let ledger_path = dir.join(LEDGER_FILE);
+        let problem = |why: String| FolderProblem {
+            path: ledger_path.clone(),
+            why,
+        };
         match crate::limits::read_limited(&ledger_path, LEDGER_LIMIT) {
-            Ok(bytes) => parse_ledger(&ledger_path, &bytes).map(|_| ()),
+            Ok(bytes) => parse_ledger_why(&bytes).map(|_| ()).map_err(problem),
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
-            Err(e) => Err(io_err(&ledger_path, e)),
+            Err(e) => Err(problem(e.to_string())),
         }
     }
 
     /// Refuses `dir` unless it is missing (`Ok(false)`) or a folder that holds nothing but the
     /// ledger's own files (`Ok(true)`).
-    fn own_folder(dir: &Path) -> std::io::Result<bool> {
+    fn own_folder(dir: &Path) -> Result<bool, FolderProblem> {
+        let problem = |why: String| FolderProblem {
+            path: dir.to_path_buf(),
+            why,
+        };
         match std::fs::metadata(dir) {
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(false),
-            Err(e) => return Err(io_err(dir, e)),
+            Err(e) => return Err(problem(e.to_string())),
             Ok(m) if !m.is_dir() => {
-                return Err(io_err(
-                    dir,
-                    format!(
-                        "is {}, not a folder; the ledger needs a folder of its own (name a new \
-                         one with --state or report.state_dir)",
-                        crate::limits::kind_of(&m.file_type())
-                    ),
-                ));
+                return Err(problem(format!(
+                    "is {}, not a folder; the ledger needs a folder of its own (name a new \
+                     one with --state or report.state_dir)",
+                    crate::limits::kind_of(&m.file_type())
+                )));
             }
             Ok(_) => {}
         }
         // A folder of its own: `--state ~` or `--state .` put the ledger's files among other
         // people's (and read any `ledger.json` found there as ours).
         let mut foreign: Vec<String> = std::fs::read_dir(dir)
-            .map_err(|e| io_err(dir, e))?
+            .map_err(|e| problem(e.to_string()))?
             .filter_map(Result::ok)
             .map(|e| e.file_name().to_string_lossy().into_owned())
             .filter(|n| {
@@ -229,19 +258,16 @@ impl Ledger {
         if !foreign.is_empty() {
             foreign.sort();
             let shown: Vec<String> = foreign.iter().take(5).map(|n| format!("`{n}`")).collect();
-            return Err(io_err(
-                dir,
-                format!(
-                    "holds {}{} besides a ledger's files; the ledger needs a folder of its own \
-                     (name a new one with --state or report.state_dir)",
-                    shown.join(", "),
-                    if foreign.len() > 5 {
-                        format!(" and {} more", foreign.len() - 5)
-                    } else {
-                        String::new()
-                    }
-                ),
-            ));
+            return Err(problem(format!(
+                "holds {}{} besides a ledger's files; the ledger needs a folder of its own \
+                 (name a new one with --state or report.state_dir)",
+                shown.join(", "),
+                if foreign.len() > 5 {
+                    format!(" and {} more", foreign.len() - 5)
+                } else {
+                    String::new()
+                }
+            )));
         }
         Ok(true)
     }

@@ -170,14 +170,22 @@ type PlanError = RunError;
 /// Refuses `--out` or `--state` written with a `~` the shell did not expand (quoted, as in a
 /// cron line `--out "~/reports"`): it would name a folder called `~` in the working folder.
 fn no_tilde(option: &str, path: Option<&Path>) -> Result<(), PlanError> {
-    match path.and_then(program::load::tilde_problem) {
-        Some(why) => Err(usage(format!(
-            "{option} {}: {why}; write the full path (a shell expands `~` only when it is not \
-             quoted)",
-            path.unwrap_or(Path::new("")).display()
-        ))),
+    match tilde_message(option, path) {
+        Some(m) => Err(usage(m)),
         None => Ok(()),
     }
+}
+
+/// What [`no_tilde`] says about `option`'s `path` (`check --state` says the same).
+pub(crate) fn tilde_message(option: &str, path: Option<&Path>) -> Option<String> {
+    let path = path?;
+    program::load::tilde_problem(path).map(|why| {
+        format!(
+            "{option} {}: {why}; write the full path (a shell expands `~` only when it is not \
+             quoted)",
+            path.display()
+        )
+    })
 }
 
 fn usage(message: String) -> PlanError {

@@ -631,3 +631,115 @@ fn out_dot_puts_the_ledger_beside_the_output_folder_not_inside_it() {
     let o = run();
     assert_eq!(o.status.code(), Some(0), "{o:?}");
 }
+
+/// `check` passed a program whose ledger folder `run` then refused (exit 6, after the user had
+/// been told the program was fine). It now finds the ledger folder as a run does (the default
+/// beside `report.out`, `report.state_dir`, or `--state` given to both) and reports the same
+/// problem, naming the file, with the run's exit code; nothing is created or changed.
+#[test]
+fn check_reports_a_ledger_folder_that_run_would_refuse() {
+    let t = ProgramTest::fixture("report-small");
+    let check =
+        |extra: &[&str]| t.run(&[&["check", "{dir}", "--as-of", AS_OF][..], extra].concat());
+    let run = |extra: &[&str]| {
+        t.run(
+            &[
+                &["run", "{dir}", "--as-of", AS_OF, "--formats", "html"][..],
+                extra,
+            ]
+            .concat(),
+        )
+    };
+    let clean = check(&[]).code;
+    assert!(clean < 2, "the fixture checks clean (or with warnings)");
+
+    // The default place, beside report.out, holding someone's notes.
+    let ledger = t.dir.join("reports.ledger");
+    std::fs::create_dir(&ledger).unwrap();
+    std::fs::write(ledger.join("notes.txt"), "mine\n").unwrap();
+    let why = "holds `notes.txt` besides a ledger's files; the ledger needs a folder of its own";
+    let before = tree_hashes(&t.dir);
+    let c = check(&[]);
+    assert_eq!(c.code, 6, "{c:?}");
+    assert!(
+        c.stdout.contains(&format!(
+            "error: {}: group-report ledger: {why}",
+            ledger.display()
+        )),
+        "{}",
+        c.stdout
+    );
+    let j = check(&["--format", "json"]);
+    assert_eq!(j.code, 6, "{j:?}");
+    let line: serde_json::Value = j
+        .stdout
+        .lines()
+        .map(|l| serde_json::from_str::<serde_json::Value>(l).unwrap())
+        .find(|v| {
+            v["message"]
+                .as_str()
+                .unwrap_or("")
+                .contains("group-report ledger")
+        })
+        .expect("a JSON line for the ledger");
+    assert_eq!(line["severity"], "error");
+    assert_eq!(line["file"], ledger.to_string_lossy().as_ref());
+    assert_eq!(tree_hashes(&t.dir), before, "check changed nothing");
+    let r = run(&[]);
+    assert_eq!(r.code, 6, "{r:?}");
+    assert!(
+        r.stderr
+            .contains(&format!("group-report ledger: {}: {why}", ledger.display())),
+        "{}",
+        r.stderr
+    );
+    std::fs::remove_file(ledger.join("notes.txt")).unwrap();
+    assert_eq!(check(&[]).code, clean, "an empty folder is the ledger's");
+
+    // report.state_dir naming a file.
+    std::fs::write(t.dir.join("kept"), "a file\n").unwrap();
+    set_state_dir(&t, "kept");
+    let why = "is a regular file, not a folder; the ledger needs a folder of its own";
+    let c = check(&[]);
+    assert_eq!(c.code, 6, "{c:?}");
+    assert!(
+        c.stdout.contains("kept: group-report ledger: "),
+        "{}",
+        c.stdout
+    );
+    assert!(c.stdout.contains(why), "{}", c.stdout);
+    assert_eq!(run(&[]).code, 6);
+
+    // `--state` given to both, holding a ledger.json cut short: the file itself is named.
+    let cut = t.dir.parent().unwrap().join("cut");
+    std::fs::create_dir(&cut).unwrap();
+    std::fs::write(
+        cut.join("ledger.json"),
+        "{\"format\":1,\"releases\":[{\"pro",
+    )
+    .unwrap();
+    let state = cut.to_string_lossy().into_owned();
+    let c = check(&["--state", &state]);
+    assert_eq!(c.code, 6, "{c:?}");
+    assert!(
+        c.stdout.contains(&format!(
+            "error: {}: group-report ledger: EOF while parsing",
+            cut.join("ledger.json").display()
+        )),
+        "{}",
+        c.stdout
+    );
+    let r = run(&["--state", &state]);
+    assert_eq!(r.code, 6, "{r:?}");
+    assert!(
+        r.stderr.contains("ledger.json: EOF while parsing"),
+        "{}",
+        r.stderr
+    );
+    // A `--state` `run` refuses as a wrong command line is one for `check` too.
+    let c = check(&["--state", "participants/x"]);
+    assert_eq!(c.code, 2, "{c:?}");
+    assert!(c.stdout.contains("inside participants/"), "{}", c.stdout);
+    assert_eq!(run(&["--state", "participants/x"]).code, 2);
+    assert!(!t.dir.join("participants/x").exists());
+}
