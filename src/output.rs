@@ -953,10 +953,26 @@ fn new_file(p: &Path, _access: Access) -> Result<File, StagingError> {
 /// folder. Nothing is written outside `dir`: a folder on the way that is a link is an error,
 /// and the file is created only if nothing is at its name (no link is followed, not even one
 /// planted in between). An error names the path that failed.
+///
+/// Atomic per file: the bytes go to a new temporary file in the same folder (`.NAME.XXXXXX.tmp`,
+/// flushed to disk), which is then given the file's name only if that name is still free
+/// (`renameat2` with `RENAME_NOREPLACE`, else a hard link, which fails on an existing name; by
+/// `tempfile`'s `persist_noclobber`). So a full disk or a kill leaves either the whole file or
+/// none at its name, never a part, and a file that appears meanwhile is never replaced. A
+/// failed write removes its temporary file; only a process killed mid-write leaves one behind.
 pub fn write_new_file(
     dir: &Path,
     rel: &str,
     bytes: &[u8],
+) -> Result<bool, (PathBuf, std::io::Error)> {
+    write_new_file_with(dir, rel, |f| f.write_all(bytes))
+}
+
+/// [`write_new_file`] with the contents written by `fill` (a test makes it fail mid-way).
+fn write_new_file_with(
+    dir: &Path,
+    rel: &str,
+    fill: impl FnOnce(&mut File) -> std::io::Result<()>,
 ) -> Result<bool, (PathBuf, std::io::Error)> {
     let path = dir.join(rel);
     if fs::symlink_metadata(&path).is_ok() {
@@ -980,21 +996,117 @@ pub fn write_new_file(
             Err(e) => return Err((folder, e)),
         }
     }
-    if let Some(p) = path.parent() {
-        fs::create_dir_all(p).map_err(|e| (p.to_path_buf(), e))?;
-    }
-    File::options()
-        .write(true)
-        .create_new(true)
-        .open(&path)
-        .and_then(|mut f| f.write_all(bytes))
+    let parent = path.parent().unwrap_or(dir);
+    fs::create_dir_all(parent).map_err(|e| (parent.to_path_buf(), e))?;
+    let file_name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let prefix = format!(".{file_name}.");
+    let mut builder = tempfile::Builder::new();
+    builder.prefix(&prefix).suffix(".tmp");
+    // The mode a plain new file gets (0666 less the umask), not the temporary file's 0600.
+    #[cfg(unix)]
+    builder.permissions(std::os::unix::fs::PermissionsExt::from_mode(0o666));
+    let mut tmp = builder
+        .tempfile_in(parent)
+        .map_err(|e| (parent.to_path_buf(), e))?;
+    // On an error the temporary file is removed when `tmp` is dropped.
+    fill(tmp.as_file_mut())
+        .and_then(|()| tmp.as_file().sync_all())
         .map_err(|e| (path.clone(), e))?;
+    match tmp.persist_noclobber(&path) {
+        Ok(_) => {}
+        // Something took the name meanwhile: it is left as it is, and ours removed.
+        Err(e) if e.error.kind() == std::io::ErrorKind::AlreadyExists => return Ok(false),
+        Err(e) => return Err((path, e.error)),
+    }
+    // The new name itself on disk (best effort: not every file system can sync a folder).
+    if let Ok(d) = File::open(parent) {
+        let _ = d.sync_all();
+    }
     Ok(true)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The names in `dir`, sorted.
+    fn names(dir: &Path) -> Vec<String> {
+        let mut v: Vec<String> = fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        v.sort();
+        v
+    }
+
+    /// `templates dump` wrote each file in place: a disk that filled (or a kill) half-way
+    /// through left a template cut short under its own name, which the next dump skipped as
+    /// "exists" and a program then used. A failed write now leaves no file at the name and no
+    /// temporary file beside it.
+    #[test]
+    fn a_new_file_that_fails_mid_way_leaves_nothing() {
+        let tmp = tempfile::tempdir().unwrap();
+        let r = write_new_file_with(tmp.path(), "partials/style.hbs", |f| {
+            f.write_all(b"<style>:root { --ink:")?;
+            Err(std::io::Error::new(
+                std::io::ErrorKind::StorageFull,
+                "No space left on device",
+            ))
+        });
+        let (path, e) = r.expect_err("the write failed");
+        assert_eq!(path, tmp.path().join("partials/style.hbs"));
+        assert_eq!(e.kind(), std::io::ErrorKind::StorageFull);
+        assert_eq!(names(&tmp.path().join("partials")), Vec::<String>::new());
+    }
+
+    #[test]
+    fn a_new_file_is_whole_leaves_no_temporary_file_and_never_replaces_one() {
+        let tmp = tempfile::tempdir().unwrap();
+        assert_eq!(
+            write_new_file(tmp.path(), "a.hbs", b"new").map_err(|(p, e)| (p, e.kind())),
+            Ok(true)
+        );
+        assert_eq!(fs::read(tmp.path().join("a.hbs")).unwrap(), b"new");
+        assert_eq!(names(tmp.path()), ["a.hbs"]);
+        // An existing file is left as it is.
+        fs::write(tmp.path().join("b.hbs"), b"mine").unwrap();
+        assert_eq!(
+            write_new_file(tmp.path(), "b.hbs", b"new").map_err(|(p, e)| (p, e.kind())),
+            Ok(false)
+        );
+        assert_eq!(fs::read(tmp.path().join("b.hbs")).unwrap(), b"mine");
+        // A file that appears while ours is written is not replaced either, and ours is
+        // removed (the name taken between the first look and the rename).
+        let late = tmp.path().join("c.hbs");
+        let r = write_new_file_with(tmp.path(), "c.hbs", |f| {
+            fs::write(&late, b"theirs")?;
+            f.write_all(b"new")
+        });
+        assert_eq!(r.map_err(|(p, e)| (p, e.kind())), Ok(false));
+        assert_eq!(fs::read(&late).unwrap(), b"theirs");
+        assert_eq!(names(tmp.path()), ["a.hbs", "b.hbs", "c.hbs"]);
+        // A link planted the same way is not followed or replaced.
+        #[cfg(unix)]
+        {
+            let target = tmp.path().join("target");
+            let link = tmp.path().join("d.hbs");
+            let r = write_new_file_with(tmp.path(), "d.hbs", |f| {
+                std::os::unix::fs::symlink(&target, &link)?;
+                f.write_all(b"new")
+            });
+            assert_eq!(r.map_err(|(p, e)| (p, e.kind())), Ok(false));
+            assert!(
+                fs::symlink_metadata(&link)
+                    .unwrap()
+                    .file_type()
+                    .is_symlink()
+            );
+            assert!(!target.exists(), "nothing written through the link");
+        }
+    }
 
     /// A bind mount of a folder of the same file system shows only in the mount table, whose
     /// mount points write a space, tab or backslash as an octal escape.

@@ -978,6 +978,58 @@ fn templates_dump_never_writes_through_a_link() {
     );
 }
 
+/// `templates dump` killed while writing a file (here by the kernel: the file-size limit
+/// `ulimit -f` sends SIGXFSZ, as a full disk stops a write) left that template cut short under
+/// its own name; the next dump skipped it as existing and a program used it. Each file is now
+/// written whole or not at all: every template in the folder is byte for byte the built-in,
+/// and a second dump completes the set.
+#[cfg(unix)]
+#[test]
+fn templates_dump_killed_mid_file_leaves_no_partial_template() {
+    use cohortpress::report::templates::BUILTIN;
+    let t = ProgramTest::fixture("report-small");
+    let dump = t.dir.parent().unwrap().join("dump");
+    // 2 blocks: 1 KiB or 2 KiB as the shell counts them; the first template is larger.
+    assert!(BUILTIN[0].1.len() > 2048);
+    let o = Command::new("sh")
+        .arg("-c")
+        .arg("ulimit -f 2 && exec \"$0\" templates dump \"$1\"")
+        .arg(BIN)
+        .arg(&dump)
+        .output()
+        .unwrap();
+    assert!(!o.status.success(), "the limit stopped the dump: {o:?}");
+    let whole_or_absent = |dump: &Path| {
+        for (name, text) in BUILTIN {
+            if let Ok(found) = std::fs::read(dump.join(name)) {
+                assert_eq!(
+                    String::from_utf8_lossy(&found),
+                    *text,
+                    "{name}: {} of {} bytes",
+                    found.len(),
+                    text.len()
+                );
+            }
+        }
+    };
+    whole_or_absent(&dump);
+    assert!(
+        !dump.join(BUILTIN[0].0).exists(),
+        "the first file was not finished"
+    );
+    let o = run_bin(
+        &t,
+        &["templates", "dump", &dump.to_string_lossy()],
+        &[],
+        None,
+    );
+    assert_eq!(o.code, 0, "{o:?}");
+    whole_or_absent(&dump);
+    for (name, _) in BUILTIN {
+        assert!(dump.join(name).is_file(), "{name}");
+    }
+}
+
 /// The clinician follow-up list's CSV carries each participant's name from `profile.yaml`: a
 /// name that begins like a spreadsheet formula was written raw (`=HYPERLINK(…)` ran when the
 /// nurse opened `followup.csv`), the one CSV that did not go through the guarded writer.
