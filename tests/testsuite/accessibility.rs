@@ -345,3 +345,149 @@ fn participant_chart_captions_stay_readable() {
         "The trend smooths out day-to-day water swings; the shaded band is its 95 % range.</figcaption>"
     ));
 }
+
+/// Chromium alone (the sideways-scroll check below needs no axe-core): `None` after printing
+/// why the check is skipped; a failure instead when `COHORTPRESS_REQUIRE_AXE=1` (CI installs
+/// Chromium).
+fn chromium_only() -> Option<PathBuf> {
+    let found = std::env::var_os("CHROMIUM")
+        .map(PathBuf::from)
+        .filter(|p| p.is_file())
+        .or_else(|| find_on_path(&["chromium", "chromium-browser", "google-chrome"]));
+    if found.is_none() {
+        let why = "Chromium not found (install the `chromium` package or set CHROMIUM)";
+        if std::env::var("COHORTPRESS_REQUIRE_AXE").as_deref() == Ok("1") {
+            panic!("COHORTPRESS_REQUIRE_AXE=1 but {why}");
+        }
+        eprintln!("SKIPPED: sideways-scroll check in Chromium: {why}");
+    }
+    found
+}
+
+/// What the long name `long` makes scroll sideways in `html` at `width` CSS px: the page
+/// itself, and each table's scroll box (`.table-wrap`) that is wider with the name than with a
+/// short one put in its cells (a table with many columns may scroll on a phone anyway). Also
+/// how many cells held the name.
+fn widened_by(chromium: &Path, html: &str, long: &str, width: u32) -> (Vec<String>, usize) {
+    const MEASURE: &str = r#"(function () {
+  function widths() {
+    return Array.from(document.querySelectorAll('.table-wrap')).map(function (e) { return e.scrollWidth; });
+  }
+  var found = [];
+  var doc = document.documentElement;
+  if (doc.scrollWidth > doc.clientWidth + 1) {
+    found.push('page ' + doc.scrollWidth + ' px in ' + doc.clientWidth + ' px');
+  }
+  var withLong = widths();
+  var cells = Array.from(document.querySelectorAll('td')).filter(function (td) { return td.textContent === LONG; });
+  cells.forEach(function (td) { td.textContent = 'Rashid Kowalski-Hart'; });
+  var withShort = widths();
+  withLong.forEach(function (w, i) {
+    if (w > withShort[i] + 1) {
+      found.push('table ' + i + ' ' + w + ' px wide with the long name, ' + withShort[i] + ' px with a short one');
+    }
+  });
+  var pre = document.createElement('pre');
+  pre.id = 'sideways';
+  pre.textContent = cells.length + '|' + found.join('|');
+  document.body.appendChild(pre);
+})();
+"#;
+    let tmp = tempfile::Builder::new()
+        .prefix("cohortpress-wrap-")
+        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
+        .expect("temp dir");
+    let dir = tmp.path();
+    assert!(long.chars().all(|c| c.is_ascii_alphanumeric()));
+    std::fs::write(
+        dir.join("measure.js"),
+        format!("var LONG = \"{long}\";\n{MEASURE}"),
+    )
+    .expect("write script");
+    let at = html.rfind("</body>").expect("page has </body>");
+    let page = format!(
+        "{}<script src=\"measure.js\"></script>\n{}",
+        &html[..at],
+        &html[at..]
+    );
+    std::fs::write(dir.join("page.html"), page).expect("write page");
+    let tools = Tools {
+        chromium: chromium.to_path_buf(),
+        axe: PathBuf::new(),
+    };
+    let dom = dump_dom(&tools, dir, &dir.join("page.html"), width);
+    let start = dom
+        .find("<pre id=\"sideways\">")
+        .unwrap_or_else(|| panic!("the script wrote nothing; the page ends:\n{}", tail(&dom)))
+        + "<pre id=\"sideways\">".len();
+    let end = start + dom[start..].find("</pre>").expect("end of result");
+    let mut parts = dom[start..end].split('|');
+    let cells = parts.next().unwrap().parse().expect("cell count");
+    (
+        parts
+            .filter(|s| !s.is_empty())
+            .map(str::to_string)
+            .collect(),
+        cells,
+    )
+}
+
+/// A name of 100 letters without a space (names are capped at 100 characters) made the
+/// clinician follow-up table as wide as the name: at 1000 px it scrolled sideways (1,302 px in
+/// 824 px), and on a 390 px phone the flag's reason and details were pushed off to the right.
+/// The id and name cells of the list now wrap long unbroken text (and keep a width of their
+/// own, so short names wrap as before): the table is no wider than with a short name, and no
+/// page scrolls sideways.
+#[test]
+fn a_long_unbroken_name_wraps_in_the_followup_list_and_the_report() {
+    let Some(chromium) = chromium_only() else {
+        return;
+    };
+    let t = crate::harness::ProgramTest::sample();
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Nurse\"\n"),
+    )
+    .unwrap();
+    // SG-010 is flagged in the sample's September, so the name is on the list.
+    let name: String = "Brackenthwaiteovna".repeat(6).chars().take(100).collect();
+    let profile = t.dir.join("participants/SG-010/profile.yaml");
+    let p = std::fs::read_to_string(&profile).unwrap();
+    let p: String = p
+        .lines()
+        .map(|l| {
+            if l.starts_with("name:") {
+                format!("name: {name}\n")
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect();
+    std::fs::write(&profile, p).unwrap();
+    let out = t.dir.parent().unwrap().join("out");
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-01",
+        "--formats",
+        "html",
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert!(r.code < 6, "{r:?}");
+    for (page, cells) in [
+        ("followup/followup.html", 1),
+        ("participants/SG-010.html", 0),
+    ] {
+        let html = std::fs::read_to_string(out.join(page)).unwrap();
+        assert!(html.contains(&name), "{page} shows the name whole");
+        for width in WIDTHS {
+            let (found, held) = widened_by(&chromium, &html, &name, width);
+            assert_eq!(held, cells, "{page}: cells holding the name");
+            assert!(found.is_empty(), "{page} at {width} px: {found:?}");
+        }
+    }
+}
