@@ -84,9 +84,10 @@ pub fn decode_legacy(bytes: &[u8]) -> Result<(String, String), String> {
 /// the byte order's name, or why it is refused: an odd number of bytes, a lone surrogate, or a
 /// control character other than tab and line ends (a UTF-32 file, or binary data).
 ///
-/// A file without the mark is UTF-16 too when its bytes show it ([`unmarked_utf16`]: text of
-/// Latin letters, digits and punctuation has a zero byte in every pair, at the same end), as
-/// some exporters and scripts write it; UTF-8 and Windows-1252 text never holds a zero byte.
+/// A file without the mark is UTF-16 too when its bytes show it ([`unmarked_utf16`]: its line
+/// ends, `0A 00` or `00 0A`, in any script; in a file of one line, a zero byte in nearly every
+/// pair at the same end), as some exporters and scripts write it; UTF-8 and Windows-1252 text
+/// never holds a zero byte.
 pub fn decode_utf16(bytes: &[u8]) -> Option<Result<(String, &'static str), String>> {
     let (rest, little, order) = match bytes {
         [0xFF, 0xFE, rest @ ..] => (rest, true, "UTF-16 little-endian"),
@@ -137,12 +138,53 @@ pub fn decode_utf16(bytes: &[u8]) -> Option<Result<(String, &'static str), Strin
     })())
 }
 
-/// Whether `bytes` (with no byte-order mark) look like UTF-16 text, and in which byte order
-/// (`Some(true)`: little-endian): the first character is ASCII, and in the first 4 KiB nearly
-/// every pair of bytes has its zero byte at the one end (at least 90 % of the pairs, and at
-/// most 5 % at the other end: characters such as `Ā`, U+0100, have a zero low byte). A file
-/// of text of other scripts (Chinese, Greek) is not recognised so, and is refused as before.
+/// Whether `bytes` (with no byte-order mark) are UTF-16 text, and in which byte order
+/// (`Some(true)`: little-endian). Two signs, either of which tells:
+///
+/// - The line ends, whatever the script. A line feed, U+000A, is the pair `0A 00` in
+///   little-endian and `00 0A` in big-endian (at an even offset); read in the other order
+///   either pair is U+0A00, which Unicode leaves unassigned (Python 3.11 `unicodedata`, Unicode
+///   14.0.0: category Cn), so text of any script holds line ends of one order only. Line ends
+///   of exactly one order (at least one), no pair `00 00` (U+0000: UTF-32 or binary data),
+///   and at least as many ASCII characters in that order as lines (every line of our files has
+///   dates, delimiters or keys) give that order. UTF-8 and Windows-1252 text never holds a zero
+///   byte, so neither pair.
+/// - Without a line end (a file of one line): the first character is ASCII, and in the first
+///   4 KiB nearly every pair of bytes has its zero byte at the one end (at least 90 % of the
+///   pairs, and at most 5 % at the other end: characters such as `Ā`, U+0100, have a zero low
+///   byte): text of Latin letters, digits and punctuation.
+///
+/// Neither is a silent guess: the file is then decoded strictly in that order (a lone
+/// surrogate or a control character refuses it), `check` and the data-quality notes say how it
+/// was read, and a CSV file's header must still name its columns.
 fn unmarked_utf16(bytes: &[u8]) -> Option<bool> {
+    // UTF-8 and Windows-1252 text (nearly every file) hold no zero byte: nothing to look at.
+    if !bytes.contains(&0) {
+        return None;
+    }
+    let ascii = |b: u8| b.is_ascii_graphic() || b == b' ';
+    let (mut le_ends, mut be_ends, mut nul) = (0usize, 0usize, false);
+    let (mut le_ascii, mut be_ascii) = (0usize, 0usize);
+    for p in bytes.chunks_exact(2) {
+        match *p {
+            [0x0A, 0x00] => le_ends += 1,
+            [0x00, 0x0A] => be_ends += 1,
+            // U+0000 in either order: UTF-32 or binary data, not UTF-16 text.
+            [0x00, 0x00] => nul = true,
+            [b, 0x00] if ascii(b) => le_ascii += 1,
+            [0x00, b] if ascii(b) => be_ascii += 1,
+            _ => {}
+        }
+    }
+    match (le_ends, be_ends) {
+        _ if nul => {}
+        (n, 0) if n > 0 && le_ascii >= n => return Some(true),
+        (0, n) if n > 0 && be_ascii >= n => return Some(false),
+        // No line end, or both orders' (not UTF-16 text), or lines without the ASCII our
+        // files have on every line (dates, delimiters, keys): a stray zero byte beside a
+        // line feed in a damaged file.
+        _ => {}
+    }
     let sample = &bytes[..bytes.len().min(4096) & !1];
     if sample.len() < 4 {
         return None;
@@ -152,7 +194,6 @@ fn unmarked_utf16(bytes: &[u8]) -> Option<bool> {
     let (low, high) = (zero_at(0), zero_at(1));
     let mostly = |n: usize| n * 10 >= pairs * 9;
     let rarely = |n: usize| n * 20 <= pairs;
-    let ascii = |b: u8| b.is_ascii_graphic() || b == b' ';
     if ascii(sample[0]) && sample[1] == 0 && mostly(high) && rarely(low) {
         Some(true)
     } else if sample[0] == 0 && ascii(sample[1]) && mostly(low) && rarely(high) {
@@ -237,6 +278,42 @@ mod tests {
             .flat_map(u16::to_le_bytes)
             .collect();
         assert_eq!(decode_utf16(&greek), None);
+    }
+
+    /// Without a mark, only text that was nearly all Latin was recognised (90 % of the pairs
+    /// with a zero byte): a profile with a Greek name, session names in Cyrillic or a note in
+    /// Chinese were refused. The line ends tell the byte order in any script.
+    #[test]
+    fn utf16_without_a_byte_order_mark_in_other_scripts_is_recognised_by_its_line_ends() {
+        for text in [
+            "id: P1\nname: \"Αικατερίνη Παπαδοπούλου\"\n# Καρτέλα συμμετέχοντος\n",
+            "date,session,attended\r\n2026-04-07,Занятие «Отправная точка»,yes\r\n",
+            "date,activity,minutes\n2026-04-07,太极拳（杨式）晨练,30\n",
+        ] {
+            let le: Vec<u8> = text.encode_utf16().flat_map(u16::to_le_bytes).collect();
+            let be: Vec<u8> = text.encode_utf16().flat_map(u16::to_be_bytes).collect();
+            assert_eq!(
+                decode_utf16(&le),
+                Some(Ok((
+                    text.to_string(),
+                    "UTF-16 little-endian (without a byte-order mark)"
+                ))),
+                "{text}"
+            );
+            assert_eq!(
+                decode_utf16(&be),
+                Some(Ok((
+                    text.to_string(),
+                    "UTF-16 big-endian (without a byte-order mark)"
+                ))),
+                "{text}"
+            );
+        }
+        // Line ends of both orders: not UTF-16 text.
+        assert_eq!(decode_utf16(b"a\0\n\0\0\nb\0"), None);
+        // A damaged UTF-8 file with a zero byte beside a line feed is not taken for UTF-16
+        // (its lines have no ASCII in that reading), and is refused by the UTF-8 reading.
+        assert_eq!(decode_utf16("Zoë M\0\nxx,yy\n".as_bytes()), None);
     }
 
     #[test]

@@ -446,6 +446,80 @@ fn a_file_saved_as_unicode_text_is_read_like_utf8() {
     );
 }
 
+/// UTF-16 without a byte-order mark was recognised only when nearly every character was Latin
+/// (a zero byte in 90 % of the pairs): a profile with a Greek name, or a sessions file with
+/// Cyrillic session names, was refused ("it may be UTF-16 or binary") and the participant lost.
+/// The line ends tell the byte order whatever the script: U+000A is `0A 00` in little-endian
+/// and `00 0A` in big-endian, and the other reading of either is U+0A00, which Unicode does not
+/// assign (Python 3.11 `unicodedata`, Unicode 14.0: category Cn). How it was read is noted.
+#[test]
+fn unicode_text_without_a_byte_order_mark_in_other_scripts_is_read() {
+    let t = ProgramTest::demo(2);
+    let as_of = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    let folder = t.dir.join("participants/SG-001");
+    let sessions_csv = fs::read_to_string(folder.join("sessions.csv")).unwrap();
+    let sessions_before = sessions_csv.lines().count() - 1;
+    assert!(sessions_before > 5, "{sessions_csv}");
+    // Session names in Cyrillic, the file in UTF-16 big-endian without a mark.
+    let mut rows = sessions_csv.lines();
+    let mut cyrillic = format!("{}\n", rows.next().unwrap());
+    for (i, row) in rows.enumerate() {
+        let cells: Vec<&str> = row.split(',').collect();
+        cyrillic.push_str(&format!(
+            "{},Занятие {} «Отправная точка»,{}\n",
+            cells[0],
+            i + 1,
+            cells[2]
+        ));
+    }
+    let be: Vec<u8> = cyrillic.encode_utf16().flat_map(u16::to_be_bytes).collect();
+    fs::write(folder.join("sessions.csv"), be).unwrap();
+    // A Greek name (and a CJK comment) in profile.yaml, little-endian without a mark.
+    let profile = fs::read_to_string(folder.join("profile.yaml")).unwrap();
+    let name = "Αικατερίνη Παπαδοπούλου-Καραγιάννη";
+    let profile: String = profile
+        .lines()
+        .map(|l| {
+            if l.starts_with("name:") {
+                format!("name: \"{name}\"\n")
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect();
+    let profile = format!("# 参加者の記録 · Καρτέλα συμμετέχοντος\n{profile}");
+    assert!(profile.contains(name), "the demo profile has a name line");
+    let le: Vec<u8> = profile.encode_utf16().flat_map(u16::to_le_bytes).collect();
+    fs::write(folder.join("profile.yaml"), le).unwrap();
+
+    let r = cohortpress::check::check_program(&t.dir, as_of);
+    let p = r.participants.iter().find(|p| p.id == "SG-001").unwrap();
+    assert_eq!(p.diagnostics, [], "nothing refused");
+    let data = p.data.as_ref().expect("the participant is usable");
+    assert_eq!(data.profile.name.as_deref(), Some(name));
+    assert_eq!(data.sessions.len(), sessions_before);
+    assert_eq!(data.sessions[0].session, "Занятие 1 «Отправная точка»");
+    let notes: Vec<String> = p
+        .notes
+        .iter()
+        .map(|n| format!("{}: {}", n.file, n.message))
+        .collect();
+    assert!(
+        notes.contains(
+            &"participants/SG-001/profile.yaml: read as UTF-16 little-endian (without a byte-order mark) text"
+                .to_string()
+        ),
+        "{notes:?}"
+    );
+    assert!(
+        notes.contains(
+            &"participants/SG-001/sessions.csv: read as UTF-16 big-endian (without a byte-order mark) text"
+                .to_string()
+        ),
+        "{notes:?}"
+    );
+}
+
 #[test]
 fn input_files_named_in_other_case_are_read() {
     let t = ProgramTest::demo(2);
