@@ -81,7 +81,8 @@ pub enum Glycaemia {
 pub enum Defect {
     /// A weigh-in written in lb in a file whose rows say kg (a ×2.2 jump).
     LbInKgFile,
-    /// A weight written with a decimal comma, quoted: `"81,4"`.
+    /// A weight written with a decimal comma and three decimals, quoted: `"81,400"` (a thousands
+    /// separator or a decimal comma: not read).
     DecimalComma,
     /// A weight of a tenth of the true value (a missed digit).
     ImpossibleWeight,

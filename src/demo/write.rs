@@ -139,8 +139,10 @@ pub fn weights_csv(out: &mut Vec<u8>, p: &Simulated) {
             WeighMark::Clean | WeighMark::MissingUnit => write!(out, "{as_written:.1}"),
             WeighMark::LbInKg => write!(out, "{:.1}", r.kg / KG_PER_LB),
             WeighMark::Impossible => write!(out, "{:.1}", as_written / 10.0),
+            // Three decimals: a decimal comma followed by one or two digits is read (it cannot
+            // group thousands); `"109,600"` could be either, and stays a defect.
             WeighMark::DecimalComma => {
-                let s = format!("{as_written:.1}");
+                let s = format!("{as_written:.1}00");
                 write!(out, "\"{}\"", s.replace('.', ","))
             }
         };

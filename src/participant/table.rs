@@ -142,6 +142,8 @@ pub struct Table {
     sniffed: bool,
     /// Units written in the header, by our column name (lowercase, e.g. `lb`).
     units: BTreeMap<&'static str, String>,
+    /// Columns whose unit in `units` was named by program.yaml's `input.columns`, not the header.
+    units_from_program: std::collections::BTreeSet<&'static str>,
     /// Headers read as one of our columns under another name: (as written, our column).
     renamed: Vec<(String, &'static str)>,
     /// Each of our columns' header as written.
@@ -262,6 +264,7 @@ impl Table {
             delimiter,
             sniffed,
             units: BTreeMap::new(),
+            units_from_program: Default::default(),
             renamed: Vec::new(),
             headers: BTreeMap::new(),
             decimal_comma: Cell::new(false),
@@ -356,7 +359,12 @@ impl Table {
                 "mg/dl" => ("mg/dL", ""),
                 u => (u, ""),
             };
-            parts.push(format!("`{col}` in {unit} (from the header){then}"));
+            let from = if self.units_from_program.contains(col) {
+                "from program.yaml's `input.columns`"
+            } else {
+                "from the header"
+            };
+            parts.push(format!("`{col}` in {unit} ({from}){then}"));
         }
         if !parts.is_empty() {
             ctx.note(parts.join("; "));
@@ -418,35 +426,7 @@ impl Table {
 /// the same meal or walk on the same days by chance (common practice).
 pub const REPEATED_BLOCK_ROWS: usize = 3;
 
-/// Lowercases a header, takes off a unit in brackets (`Weight (lb)` → `weight`, `lb`) and
-/// writes every run of other characters as one `_` (`Body Weight` → `body_weight`).
-pub fn header_key(h: &str) -> (String, Option<String>) {
-    let h = h.trim().trim_start_matches('\u{feff}');
-    let mut unit = None;
-    let mut base = h;
-    for (open, close) in [('(', ')'), ('[', ']')] {
-        if let Some(rest) = h.strip_suffix(close)
-            && let Some(at) = rest.rfind(open)
-        {
-            let u = rest[at + 1..].trim().to_lowercase();
-            if !u.is_empty() {
-                unit = Some(u);
-            }
-            base = &rest[..at];
-            break;
-        }
-    }
-    let mut key = String::with_capacity(base.len());
-    for c in base.trim().chars().flat_map(char::to_lowercase) {
-        if c.is_alphanumeric() {
-            key.push(c);
-        } else if !key.ends_with('_') {
-            key.push('_');
-        }
-    }
-    let key = key.trim_matches('_').to_string();
-    (key, unit)
-}
+pub use crate::program::files::header_key;
 
 /// Picks the field delimiter of a file: of comma, semicolon and tab, the one that splits the
 /// first line into the most fields and splits the next lines (up to 20) into as many. `None`
@@ -496,9 +476,9 @@ pub fn read_table(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Table> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let (delimiter, sniffed) = match opts.delimiter {
-        Some(d) => (d, false),
-        None => (sniff_delimiter(text).unwrap_or(b','), true),
+    let (delimiter, sniffed) = match (sep_line(text), opts.delimiter) {
+        (Some(d), _) | (None, Some(d)) => (d, false),
+        (None, None) => (sniff_delimiter(text).unwrap_or(b','), true),
     };
     with_reader(delimiter, text, |reader| {
         let file = FileRead {
@@ -877,7 +857,16 @@ fn read_records(
         })
     };
     let header_line = line_of(header.position());
-    if let Some(t) = title_line(text, spec, opts, delimiter) {
+    if sep_line(text).is_some() {
+        ctx.note(format!(
+            "the first line, `{}`, names the field delimiter (as spreadsheets write it) and is not read",
+            text.split(['\n', '\r'])
+                .find(|l| !l.trim().is_empty())
+                .unwrap_or_default()
+                .trim()
+                .escape_default()
+        ));
+    } else if let Some(t) = title_line(text, spec, opts, delimiter) {
         ctx.note(format!(
             "the first line, `{}`, is a title above the header (line {header_line}) and is not read",
             shorten(&t, 40)
@@ -921,6 +910,8 @@ fn read_records(
     let user_map = opts.columns.get(spec.kind());
     let mut columns = BTreeMap::new();
     let mut units = BTreeMap::new();
+    let mut units_from_program = std::collections::BTreeSet::new();
+    let mut mapped_units: Vec<(&'static str, String)> = Vec::new();
     let mut renamed = Vec::new();
     let mut dates_in_utc = false;
     let mut usable = true;
@@ -936,9 +927,20 @@ fn read_records(
                 .and_then(|(_, c)| ours(c))
         };
         // The program's mapping first, then our own names, then the built-in aliases.
-        let mapped = user_map.and_then(|m| m.get(&key)).and_then(|c| ours(c));
-        let mut known = mapped.or_else(|| ours(&key)).or_else(|| alias(&key));
+        let mapped = user_map
+            .and_then(|m| m.get(&key))
+            .and_then(|t| spec.mapping_target(t));
+        let mut known = mapped
+            .as_ref()
+            .map(|m| m.0)
+            .or_else(|| ours(&key))
+            .or_else(|| alias(&key));
         let mut unit = unit;
+        // A unit named by the mapping (`"Weight": weight (kg)`) is the unit of a column of
+        // bare numbers: applied below, once the file's own columns are known.
+        if let Some((c, Some(u))) = &mapped {
+            mapped_units.push((*c, u.clone()));
+        }
         // A unit written as a suffix (`weight_kg`, `duration_min`).
         if known.is_none()
             && unit.is_none()
@@ -1010,6 +1012,20 @@ fn read_records(
             ),
         }
     }
+    // The mapping's unit stands for a unit the file does not name: a unit in the column's
+    // header, or a unit column (`weight` with `unit`), says it for this file and is used.
+    for (c, u) in mapped_units {
+        let unit_column = spec
+            .header_units
+            .iter()
+            .find(|h| h.0 == c)
+            .and_then(|h| h.2)
+            .is_some_and(|r| columns.contains_key(r));
+        if !units.contains_key(c) && !unit_column {
+            units.insert(c, u);
+            units_from_program.insert(c);
+        }
+    }
     // Dates written as rows of their own above the measurements, which have only a time of
     // day (`Time,Weight,…` / `" Nov 25, 2026",` / `7:12 AM,72.5 kg,…`: a smart scale app's
     // export): whether they are is known once the rows are read.
@@ -1072,7 +1088,13 @@ fn read_records(
                 units.get(1).unwrap_or(&"lb"),
             );
             format!(
-                "name the unit in the `{header}` column's header (`{header} ({a})` or `{header} ({b})`), write it in each cell (`72.5 {a}`), or add a `{only}` column: a number alone could be {a} or {b}",
+                "name the unit in the `{header}` column's header (`{header} ({a})` or `{header} ({b})`), write it in each cell (`72.5 {a}`), add a `{only}` column, or name it once for every such file in program.yaml: `input: {{ columns: {{ {}: {{ \"{header}\": {} ({a}) }} }} }}`; a number alone could be {a} or {b}",
+                spec.kind(),
+                unit_stand_in
+                    .iter()
+                    .find(|(_, _, r)| r == only)
+                    .and_then(|(h, _, _)| spec.mapping_target(h).map(|t| t.0))
+                    .unwrap_or("weight"),
             )
         } else {
             format!(
@@ -1141,6 +1163,7 @@ fn read_records(
         width: names.len() + usize::from(time_for_date_rows.is_some()),
         date_rows_in: time_for_date_rows,
         units,
+        units_from_program,
         renamed,
         header_line,
         dates_in_utc,
@@ -1396,6 +1419,12 @@ fn read_records(
 /// them one of the file's columns: a health app's metadata line (the table's name, a version
 /// and a count, `com.example.health.weight,6310002,4`) above its header.
 fn title_line(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> Option<String> {
+    if sep_line(text).is_some() {
+        return text
+            .split(['\n', '\r'])
+            .find(|l| !l.trim().is_empty())
+            .map(|l| l.trim().to_string());
+    }
     let mut lines = text.split(['\n', '\r']).filter(|l| !l.trim().is_empty());
     let (first, second) = (lines.next()?, lines.next()?);
     let d = delimiter as char;
@@ -1413,7 +1442,12 @@ fn title_line(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> 
             .iter()
             .find(|(a, _)| *a == key)
             .map(|(_, c)| c.to_string())
-            .or_else(|| user_map.and_then(|m| m.get(&key)).cloned())
+            .or_else(|| {
+                user_map
+                    .and_then(|m| m.get(&key))
+                    .and_then(|t| spec.mapping_target(t))
+                    .map(|(c, _)| c.to_string())
+            })
     };
     if first.contains(d)
         && (first.split(d).count() >= second.split(d).count()
@@ -1425,6 +1459,23 @@ fn title_line(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> 
         .split(d)
         .any(|h| column(h).is_some_and(|c| c == "date"));
     names_date.then(|| first.trim().trim_start_matches('\u{feff}').to_string())
+}
+
+/// The delimiter a first line `sep=;` names: spreadsheets write it above the header of a CSV
+/// file to say which character separates its fields, and read it so (common practice of
+/// spreadsheet programs; no standard describes it). The line is not part of the table.
+fn sep_line(text: &str) -> Option<u8> {
+    let first = text.split(['\n', '\r']).find(|l| !l.trim().is_empty())?;
+    let first = first.trim_start_matches('\u{feff}');
+    let rest = first
+        .get(..4)
+        .filter(|p| p.eq_ignore_ascii_case("sep="))
+        .map(|_| &first[4..])?;
+    match rest.as_bytes() {
+        [b'\t'] => Some(b'\t'),
+        [d] if d.is_ascii_punctuation() && !matches!(d, b'"' | b'\'') => Some(*d),
+        _ => None,
+    }
 }
 
 /// The first `max` characters of `s`, with `…` when cut.
@@ -2280,8 +2331,15 @@ impl Cells<'_> {
         match parse_decimal(s) {
             Ok(v) => Some(v),
             // Where the comma does not separate fields, it is the decimal separator of the
-            // locale the file was written in (`70,6`).
-            Err(NumberError::DecimalComma) if self.table.delimiter != b',' => {
+            // locale the file was written in (`70,6`). Where it does, a cell quoted to hold one
+            // (`"70,6"`: spreadsheets of such locales export comma-separated files so) is read
+            // the same when the comma cannot group thousands: groups are three digits, so a
+            // comma followed by any other number of digits is a decimal comma. `"72,500"` could
+            // be either and keeps its warning.
+            Err(NumberError::DecimalComma)
+                if self.table.delimiter != b','
+                    || s.trim().rsplit_once(',').is_some_and(|(_, b)| b.len() != 3) =>
+            {
                 let v = parse_decimal(&s.replacen(',', ".", 1)).ok()?;
                 self.table.decimal_comma.set(true);
                 Some(v)
@@ -3021,6 +3079,126 @@ mod tests {
             header_key(" Body-Weight [KG] "),
             ("body_weight".into(), Some("kg".into()))
         );
+    }
+
+    #[test]
+    fn a_unit_named_by_the_program_mapping_stands_for_a_unit_the_file_does_not_name() {
+        // A bathroom scale app's `Date,Weight` with bare numbers: the unit was refused in every
+        // file, and program.yaml had no way to say it once.
+        let spec = crate::participant::records::WEIGHTS;
+        let ctx = FileCtx::new("P1", "w.csv");
+        let mut columns = BTreeMap::new();
+        columns.insert(
+            "weights".to_string(),
+            [("weight".to_string(), "weight (kg)".to_string())].into(),
+        );
+        let opts = CsvOptions {
+            columns: Arc::new(columns),
+            ..Default::default()
+        };
+        let mut d = Vec::new();
+        let t = read_table("Date,Weight\n2026-04-01,72.5\n", &spec, &opts, &ctx, &mut d);
+        assert!(d.is_empty(), "{d:?}");
+        let t = t.unwrap();
+        assert_eq!(t.header_unit("weight"), Some("kg"));
+        t.describe(&opts, &ctx);
+        assert_eq!(
+            ctx.take_notes()[0].message,
+            "`weight` in kg (from program.yaml's `input.columns`)"
+        );
+        // A file that names its unit, in the header or in a unit column, keeps its own.
+        let t = read_table(
+            "Date,Weight (lb)\n2026-04-01,160\n",
+            &spec,
+            &opts,
+            &ctx,
+            &mut d,
+        );
+        assert_eq!(t.unwrap().header_unit("weight"), Some("lb"));
+        let t = read_table(
+            "date,weight,unit\n2026-04-01,160,lb\n",
+            &spec,
+            &opts,
+            &ctx,
+            &mut d,
+        );
+        assert_eq!(t.unwrap().header_unit("weight"), None);
+        assert!(d.is_empty(), "{d:?}");
+        // The suffix form maps too; a unit the column cannot take is no mapping.
+        assert_eq!(
+            spec.mapping_target("weight_lb"),
+            Some(("weight", Some("lb".into())))
+        );
+        assert_eq!(
+            spec.mapping_target("Weight [st]"),
+            Some(("weight", Some("st".into())))
+        );
+        assert_eq!(spec.mapping_target("weight (oz)"), None);
+        assert_eq!(spec.mapping_target("unit (kg)"), None);
+        assert_eq!(spec.mapping_target("date"), Some(("date", None)));
+    }
+
+    #[test]
+    fn a_sep_line_names_the_delimiter_and_is_not_read() {
+        // Spreadsheets write `sep=;` above the header; the file was refused with the line taken
+        // for its header (`missing required columns date, weight, unit; found: sep=`).
+        let opts = CsvOptions::default();
+        let ctx = FileCtx::new("P1", "w.csv");
+        for text in [
+            "sep=;\ndate;weight;unit\n2026-04-01;72,5;kg\n",
+            "\u{feff}SEP=;\r\ndate;weight;unit\r\n2026-04-01;72,5;kg\r\n",
+        ] {
+            let (t, d) = read(text, &opts);
+            assert!(d.is_empty(), "{d:?}");
+            let t = t.unwrap();
+            assert_eq!((t.delimiter, t.header_line, t.rows.len()), (b';', 2, 1));
+            let cells = Cells {
+                table: &t,
+                row: &t.rows[0],
+                ctx: &ctx,
+                opts: &opts,
+            };
+            let mut d = Vec::new();
+            assert_eq!(cells.number("weight", &mut d), Some(72.5));
+        }
+        // The line wins over a delimiter set in program.yaml: it is the file's own word.
+        let comma = CsvOptions {
+            delimiter: Some(b','),
+            ..Default::default()
+        };
+        let (t, _) = read("sep=\t\ndate\tweight\tunit\n2026-04-01\t72.5\tkg\n", &comma);
+        assert_eq!(t.unwrap().delimiter, b'\t');
+        assert_eq!(sep_line("sep=\"\n"), None);
+        assert_eq!(sep_line("separated,by\n"), None);
+    }
+
+    #[test]
+    fn quoted_decimal_commas_in_a_comma_file_are_read_unless_they_could_group_thousands() {
+        // A spreadsheet of a decimal-comma locale exports `"72,5"`: every row was dropped.
+        let opts = CsvOptions::default();
+        let ctx = FileCtx::new("P1", "w.csv");
+        let (t, d) = read(
+            "date,weight,unit\n2026-04-01,\"72,5\",kg\n2026-04-02,\"72,500\",kg\n2026-04-03,\"72,4567\",kg\n",
+            &opts,
+        );
+        assert!(d.is_empty(), "{d:?}");
+        let t = t.unwrap();
+        let mut d = Vec::new();
+        let read_row = |i: usize, d: &mut Vec<Diagnostic>| {
+            Cells {
+                table: &t,
+                row: &t.rows[i],
+                ctx: &ctx,
+                opts: &opts,
+            }
+            .number("weight", d)
+        };
+        assert_eq!(read_row(0, &mut d), Some(72.5));
+        assert_eq!(read_row(2, &mut d), Some(72.4567));
+        assert!(d.is_empty(), "{d:?}");
+        // Three digits after the comma could be a thousands group: not guessed.
+        assert_eq!(read_row(1, &mut d), None);
+        assert!(d[0].message.contains("decimal comma"), "{}", d[0]);
     }
 
     #[test]

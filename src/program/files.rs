@@ -58,7 +58,7 @@ pub struct FileSpec {
     pub required: &'static [&'static str],
     /// Columns that may be present.
     pub optional: &'static [&'static str],
-    /// Other header names read as one of our columns (after `participant::table::header_key`).
+    /// Other header names read as one of our columns (after [`header_key`]).
     pub aliases: &'static [(&'static str, &'static str)],
     /// Columns whose header may carry a unit (`Weight (lb)`): the units accepted (empty: any,
     /// checked row by row) and the unit column such a header makes unnecessary.
@@ -75,6 +75,59 @@ impl FileSpec {
     pub fn all_columns(&self) -> impl Iterator<Item = &'static str> {
         self.required.iter().chain(self.optional).copied()
     }
+
+    /// The column (and unit, if it names one) that a target of program.yaml's `input.columns`
+    /// stands for: one of our columns as a header would name it, `weight`, `weight (kg)` or
+    /// `weight_kg` (for an export whose `Weight` column holds bare numbers, so that its unit is
+    /// said once for every file rather than written into each). `None` when the target is not
+    /// one of the file's columns, or names a unit that column does not take.
+    pub fn mapping_target(&self, target: &str) -> Option<(&'static str, Option<String>)> {
+        let (key, unit) = header_key(target);
+        let allows = |c: &str, u: &str| {
+            self.header_units
+                .iter()
+                .any(|(v, allowed, _)| *v == c && (allowed.is_empty() || allowed.contains(&u)))
+        };
+        if let Some(c) = self.all_columns().find(|c| *c == key) {
+            return match unit {
+                Some(u) if !allows(c, &u) => None,
+                u => Some((c, u)),
+            };
+        }
+        let (base, u) = key.rsplit_once('_')?;
+        let c = self.all_columns().find(|c| *c == base)?;
+        (unit.is_none() && allows(c, u)).then(|| (c, Some(u.to_string())))
+    }
+}
+
+/// Lowercases a header, takes off a unit in brackets (`Weight (lb)` → `weight`, `lb`) and
+/// writes every run of other characters as one `_` (`Body Weight` → `body_weight`).
+pub fn header_key(h: &str) -> (String, Option<String>) {
+    let h = h.trim().trim_start_matches('\u{feff}');
+    let mut unit = None;
+    let mut base = h;
+    for (open, close) in [('(', ')'), ('[', ']')] {
+        if let Some(rest) = h.strip_suffix(close)
+            && let Some(at) = rest.rfind(open)
+        {
+            let u = rest[at + 1..].trim().to_lowercase();
+            if !u.is_empty() {
+                unit = Some(u);
+            }
+            base = &rest[..at];
+            break;
+        }
+    }
+    let mut key = String::with_capacity(base.len());
+    for c in base.trim().chars().flat_map(char::to_lowercase) {
+        if c.is_alphanumeric() {
+            key.push(c);
+        } else if !key.ends_with('_') {
+            key.push('_');
+        }
+    }
+    let key = key.trim_matches('_').to_string();
+    (key, unit)
 }
 
 /// Units a weight column's header may carry.

@@ -489,7 +489,21 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
             continue;
         };
         for (written, ours) in map {
-            if !spec.all_columns().any(|c| c == ours.as_str()) {
+            if spec.mapping_target(ours).is_none() {
+                let with_units: Vec<String> = spec
+                    .header_units
+                    .iter()
+                    .filter(|(_, allowed, _)| !allowed.is_empty())
+                    .map(|(c, allowed, _)| format!("`{c} ({})`", allowed[0]))
+                    .collect();
+                let units = if with_units.is_empty() {
+                    String::new()
+                } else {
+                    format!(
+                        "; a column of bare numbers may name its unit: {}",
+                        with_units.join(", ")
+                    )
+                };
                 out.push(
                     err(
                         &format!("input.columns.{kind}"),
@@ -499,7 +513,7 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                         ),
                     )
                     .expected(format!(
-                        "one of {}",
+                        "one of {}{units}",
                         spec.all_columns().collect::<Vec<_>>().join(", ")
                     ))
                     .found(format!("`{ours}`")),
@@ -778,19 +792,20 @@ modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
     #[test]
     fn input_and_activities_keys_are_checked() {
         let good = format!(
-            "{GOOD}input:\n  time_zone: Europe/Berlin\n  columns:\n    weights: {{ \"Body Weight\": weight }}\nactivities:\n  \"Zumba Gold\": {{ met: 5.5 }}\n  \"Lunch walk\": {{ compendium: \"17190\" }}\n"
+            "{GOOD}input:\n  time_zone: Europe/Berlin\n  columns:\n    weights: {{ \"Body Weight\": weight, Mass: weight (kg) }}\nactivities:\n  \"Zumba Gold\": {{ met: 5.5 }}\n  \"Lunch walk\": {{ compendium: \"17190\" }}\n"
         );
         let p = parse_program(root(), &good).unwrap();
         assert_eq!(p.def.input.time_zone.as_deref(), Some("Europe/Berlin"));
         assert_eq!(p.def.activities.len(), 2);
         let bad = format!(
-            "{GOOD}input:\n  time_zone: Mars/Olympus\n  columns:\n    weights: {{ \"Body Weight\": mass }}\n    meals: {{ a: kcal }}\nactivities:\n  zumba: {{ met: 50 }}\n  walk: {{ compendium: \"99999\" }}\n  both: {{ met: 3, compendium: \"17190\" }}\n"
+            "{GOOD}input:\n  time_zone: Mars/Olympus\n  columns:\n    weights: {{ \"Body Weight\": mass, Mass: weight (oz) }}\n    meals: {{ a: kcal }}\nactivities:\n  zumba: {{ met: 50 }}\n  walk: {{ compendium: \"99999\" }}\n  both: {{ met: 3, compendium: \"17190\" }}\n"
         );
         let e = parse_program(root(), &bad).unwrap_err();
         let messages: Vec<&str> = e.iter().map(|d| d.message.as_str()).collect();
-        assert_eq!(e.len(), 6, "{messages:#?}");
+        assert_eq!(e.len(), 7, "{messages:#?}");
         for words in [
             "unknown time zone",
+            "`Mass` is mapped to `weight (oz)`, which is not a column of weights.csv",
             "`Body Weight` is mapped to `mass`, which is not a column of weights.csv",
             "unknown file kind `meals`",
             "MET value out of range",

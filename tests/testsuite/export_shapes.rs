@@ -35,6 +35,9 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("weights-two-digit-years.csv", 3, false),
     ("weights-two-digit-years-ambiguous.csv", 0, true),
     ("weights-health-app-metadata-line.csv", 3, false),
+    ("weights-spreadsheet-sep-line.csv", 3, false),
+    // `"72,500"` could be 72,500 or 72.5: its row only is dropped, with a warning.
+    ("weights-spreadsheet-quoted-decimal-commas.csv", 3, false),
     ("intake-food-diary-per-meal.csv", 2, false),
     ("intake-food-diary-with-daily-totals.csv", 2, false),
     ("intake-title-line.csv", 2, false),
@@ -178,6 +181,12 @@ fn every_export_shape_keeps_the_rows_it_should_and_refuses_what_it_cannot_read()
                 .iter()
                 .filter(|d| !d.message.starts_with("extra column"))
                 .filter(|d| !d.message.ends_with("as it cannot say which unit it is in"))
+                // The one row that could be read two ways (see SHAPES).
+                .filter(|d| {
+                    !(*file == "weights-spreadsheet-quoted-decimal-commas.csv"
+                        && d.message.starts_with("decimal comma in `weight`")
+                        && d.line == Some(4))
+                })
                 .collect();
             assert!(other.is_empty(), "{file}: {other:#?}");
         }
@@ -261,6 +270,11 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         [d(5, 1), d(5, 2), d(5, 13)]
     );
     same(kg("weights-german-scale.csv"), &[72.5, 72.3, 72.0]);
+    same(kg("weights-spreadsheet-sep-line.csv"), &[72.5, 72.3, 72.4]);
+    same(
+        kg("weights-spreadsheet-quoted-decimal-commas.csv"),
+        &[72.5, 72.35, 72.1],
+    );
     same(kg("weights-summary-rows.csv"), &[72.5, 72.3]);
     same(
         kg("weights-clinic-quoted-multiline.csv"),

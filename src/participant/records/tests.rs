@@ -69,8 +69,15 @@ fn weights_are_read_converted_and_sorted() {
 }
 
 #[test]
-fn decimal_comma_in_a_quoted_field_is_named() {
+fn decimal_comma_in_a_quoted_field_is_read_unless_it_could_group_thousands() {
+    // Quoted so that it stays one field, `"72,5"` can only be 72.5 (a thousands group has
+    // three digits); it was dropped with a warning.
     let (w, diags) = weights("date,weight,unit\n2026-04-01,\"72,5\",kg\n2026-04-02,72.4,kg\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 2);
+    assert!((w[0].weight.kg() - 72.5).abs() < 1e-12);
+    // `"72,500"` could be either: named at its cell, and dropped.
+    let (w, diags) = weights("date,weight,unit\n2026-04-01,\"72,500\",kg\n2026-04-02,72.4,kg\n");
     assert_eq!(w.len(), 1);
     assert_eq!(diags.len(), 1);
     assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(2)));
@@ -702,14 +709,14 @@ fn units_written_in_the_weight_cells_are_read() {
         diags[0]
     );
     // Its hint names the ways the README allows, with the file's own header: a header unit, a
-    // unit in the cells, or a unit column (it offered only a mapping in program.yaml, which
-    // cannot supply a unit the file does not hold).
+    // unit in the cells, a unit column, or the unit named once in program.yaml's mapping.
     assert_eq!(
         diags[0].hint.as_deref(),
         Some(
             "name the unit in the `Weight` column's header (`Weight (kg)` or `Weight (lb)`), \
-             write it in each cell (`72.5 kg`), or add a `unit` column: a number alone could \
-             be kg or lb"
+             write it in each cell (`72.5 kg`), add a `unit` column, or name it once for every \
+             such file in program.yaml: `input: { columns: { weights: { \"Weight\": weight (kg) } } }`; \
+             a number alone could be kg or lb"
         ),
         "{}",
         diags[0]
