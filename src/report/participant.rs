@@ -1267,7 +1267,11 @@ fn adherence_section(
     if let Some(v) = a.longest_weigh_in_streak_days {
         items.push(Kv::new(
             "Longest run of daily weigh-ins since you joined",
-            &format!("{} days", fmt::fixed(v, 0)),
+            &format!(
+                "{} {}",
+                fmt::fixed(v, 0),
+                if v.round() == 1.0 { "day" } else { "days" }
+            ),
         ));
     }
     let mut table = TableView {
@@ -1427,6 +1431,19 @@ mod activity_unread_tests {
         );
         // The weekly table's column counts days too.
         assert_eq!(view.chart.table.header[1], "Weigh-in days");
+        // Someone weighing in every other day read "Longest run of daily weigh-ins since you
+        // joined 1 days".
+        let one = AdherenceResults {
+            longest_weigh_in_streak_days: Some(1.0),
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(&one, 150.0, &ActivityUnread::Nothing, "May 2026");
+        let streak = view
+            .items
+            .iter()
+            .find(|k| k.label.starts_with("Longest run"))
+            .unwrap();
+        assert_eq!(streak.value, "1 day");
     }
 
     /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the
