@@ -768,6 +768,12 @@ fn weight_chart(
         ],
         rows: Vec::new(),
     };
+    // With fewer weigh-in days than a trend needs the trend series is empty: its legend
+    // entries and the words for it described a line the chart did not draw.
+    let has_trend = v
+        .trend
+        .as_ref()
+        .is_some_and(|t| !t.weight_trend.points.is_empty());
     if let Some(t) = &v.trend {
         lines.push(LineSeries {
             label: "Weigh-ins".into(),
@@ -780,19 +786,21 @@ fn weight_chart(
             style: LineStyle::Dots,
         });
         let s = &t.weight_trend;
-        bands.push(BandSeries {
-            label: "Trend 95 % band".into(),
-            points: s
-                .points
-                .iter()
-                .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
-                .collect(),
-        });
-        lines.push(LineSeries {
-            label: "Trend".into(),
-            points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
-            style: LineStyle::Solid,
-        });
+        if has_trend {
+            bands.push(BandSeries {
+                label: "Trend 95 % band".into(),
+                points: s
+                    .points
+                    .iter()
+                    .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
+                    .collect(),
+            });
+            lines.push(LineSeries {
+                label: "Trend".into(),
+                points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
+                style: LineStyle::Solid,
+            });
+        }
         // One row per Monday-to-Sunday week: the trend on the week's last day in the series,
         // the Sunday or the last weigh-in's day, as `weight_trend_weekly` in weekly.csv.
         let n = s.points.len();
@@ -862,6 +870,13 @@ fn weight_chart(
         target_kg.is_some(),
         forecast_to,
     );
+    if !has_trend {
+        alt = alt.replacen(
+            "weigh-ins, the smoothed trend with its 95 % band",
+            "weigh-ins (too few yet for a smoothed trend)",
+            1,
+        );
+    }
     // Steps the trend left out: the dots before each sit off the line by the steps after them
     // (with a scale put back, those before the first step sit on it); say where and why.
     if let Some(t) = v.trend.as_ref().filter(|t| !t.weigh_in_steps.is_empty()) {

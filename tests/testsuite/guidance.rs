@@ -444,4 +444,9 @@ fn loss_is_praised_only_where_it_is_a_goal_and_a_weight_without_a_trend_is_not_c
         ("Weight at your last weigh-in (10 Jun 2026)".to_string(), "90.1 kg".to_string())
     );
     assert_eq!(first("OB-01").0, "Current weight (trend)");
+    // Nor does its chart describe a trend line it does not draw.
+    let alt = &ctx("TW-01").weight_chart.alt;
+    assert!(alt.contains("weigh-ins (too few yet for a smoothed trend)"), "{alt}");
+    assert!(!alt.contains("95 % band"), "{alt}");
+    assert!(ctx("OB-01").weight_chart.alt.contains("the smoothed trend with its 95 % band"));
 }
