@@ -449,4 +449,14 @@ fn loss_is_praised_only_where_it_is_a_goal_and_a_weight_without_a_trend_is_not_c
     assert!(alt.contains("weigh-ins (too few yet for a smoothed trend)"), "{alt}");
     assert!(!alt.contains("95 % band"), "{alt}");
     assert!(ctx("OB-01").weight_chart.alt.contains("the smoothed trend with its 95 % band"));
+    // The built-in template's caption and the empty table behind the chart said the same.
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-07-10", "--formats", "html"]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let html = |id: &str| {
+        std::fs::read_to_string(t.dir.join(format!("reports/participants/{id}.html"))).unwrap()
+    };
+    for words in ["the shaded band is its 95 % range", "Data behind the chart"] {
+        assert!(!html("TW-01").contains(words), "TW-01: {words}");
+        assert!(html("OB-01").contains(words), "OB-01: {words}");
+    }
 }
