@@ -463,7 +463,10 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
         match rest.split_once(", expected ") {
             // "expected struct ModuleDef" names a type of ours, not what to write.
             Some((found, exp)) if exp.starts_with("struct ") => {
-                let in_modules = d.field.as_deref().is_some_and(|f| f.starts_with("modules["));
+                let in_modules = d
+                    .field
+                    .as_deref()
+                    .is_some_and(|f| f.starts_with("modules["));
                 d.message = format!("{found} where keys and values belong");
                 d = d
                     .found(found.to_string())

@@ -530,9 +530,7 @@ mod tests {
         run_check_with(tmp.path(), as_of(), &opts, &mut verbose);
         assert!(String::from_utf8(verbose).unwrap().contains("P1: usable\n"));
         assert!(
-            out.ends_with(
-                "checked 2 participants: 2 usable, 0 not usable; 0 errors, 0 warnings\n"
-            ),
+            out.ends_with("checked 2 participants: 2 usable, 0 not usable; 0 errors, 0 warnings\n"),
             "{out}"
         );
     }

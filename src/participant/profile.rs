@@ -781,7 +781,10 @@ flags: [glucose-lowering-medication]
         let (_, d) = parse("- a\n- b\n");
         assert_eq!(d.len(), 1, "{d:?}");
         assert_eq!(d[0].message, "sequence where keys and values belong");
-        assert_eq!(d[0].expected.as_deref(), Some("a mapping of keys and values"));
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("a mapping of keys and values")
+        );
         // A missing key and a bad date together; the birth date's check against enrolment
         // is left out while enrolment cannot be read.
         let (_, d) = parse(

@@ -796,7 +796,11 @@ modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
         let e = parse_program(root(), &ids).unwrap_err();
         let d = &e[0];
         assert!(!d.to_string().contains("struct"), "{d}");
-        assert_eq!(d.expected.as_deref(), Some("a mapping of keys and values"), "{d}");
+        assert_eq!(
+            d.expected.as_deref(),
+            Some("a mapping of keys and values"),
+            "{d}"
+        );
         assert!(
             d.hint
                 .as_deref()

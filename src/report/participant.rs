@@ -375,8 +375,7 @@ fn summary(
         let label = match trend.and_then(|t| t.days_since_last_weigh_in) {
             // Without a trend (two weigh-ins in three months) the figure is the last
             // weigh-in itself, not a trend: it read "Current weight (trend)".
-            _ if trend.and_then(|t| t.current_weight_kg.value).is_none() => match last_weigh_in
-            {
+            _ if trend.and_then(|t| t.current_weight_kg.value).is_none() => match last_weigh_in {
                 Some(d) => format!("Weight at your last weigh-in ({})", fmt::date(d)),
                 None => "Weight at your last weigh-in".to_string(),
             },

@@ -425,7 +425,12 @@ fn loss_is_praised_only_where_it_is_a_goal_and_a_weight_without_a_trend_is_not_c
         &[("2026-04-02".into(), 92.4), ("2026-06-10".into(), 90.1)],
     );
     let s = load(&t.dir, "2026-07-10");
-    let ctx = |id: &str| &s.people.get(id).unwrap_or_else(|| panic!("{id} not reported")).3;
+    let ctx = |id: &str| {
+        &s.people
+            .get(id)
+            .unwrap_or_else(|| panic!("{id} not reported"))
+            .3
+    };
     let reached = |id: &str| {
         ctx(id)
             .milestones
@@ -434,21 +439,41 @@ fn loss_is_praised_only_where_it_is_a_goal_and_a_weight_without_a_trend_is_not_c
             .map(|m| m.label.clone())
             .collect::<Vec<_>>()
     };
-    assert!(reached("OB-01").contains(&"5 % loss".to_string()), "{:?}", reached("OB-01"));
+    assert!(
+        reached("OB-01").contains(&"5 % loss".to_string()),
+        "{:?}",
+        reached("OB-01")
+    );
     for id in ["UW-01", "NW-01"] {
         assert!(ctx(id).milestones.is_empty(), "{id}: {:?}", reached(id));
     }
-    let first = |id: &str| (ctx(id).summary[0].label.clone(), ctx(id).summary[0].value.clone());
+    let first = |id: &str| {
+        (
+            ctx(id).summary[0].label.clone(),
+            ctx(id).summary[0].value.clone(),
+        )
+    };
     assert_eq!(
         first("TW-01"),
-        ("Weight at your last weigh-in (10 Jun 2026)".to_string(), "90.1 kg".to_string())
+        (
+            "Weight at your last weigh-in (10 Jun 2026)".to_string(),
+            "90.1 kg".to_string()
+        )
     );
     assert_eq!(first("OB-01").0, "Current weight (trend)");
     // Nor does its chart describe a trend line it does not draw.
     let alt = &ctx("TW-01").weight_chart.alt;
-    assert!(alt.contains("weigh-ins (too few yet for a smoothed trend)"), "{alt}");
+    assert!(
+        alt.contains("weigh-ins (too few yet for a smoothed trend)"),
+        "{alt}"
+    );
     assert!(!alt.contains("95 % band"), "{alt}");
-    assert!(ctx("OB-01").weight_chart.alt.contains("the smoothed trend with its 95 % band"));
+    assert!(
+        ctx("OB-01")
+            .weight_chart
+            .alt
+            .contains("the smoothed trend with its 95 % band")
+    );
     // The built-in template's caption and the empty table behind the chart said the same.
     let r = t.run(&["run", "{dir}", "--as-of", "2026-07-10", "--formats", "html"]);
     assert!(r.code <= 1, "{}", r.stderr);
