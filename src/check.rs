@@ -65,7 +65,7 @@ impl CheckReport {
         let usable = self.usable();
         let (e, w) = self.counts();
         format!(
-            "checked {n} participant{}: {usable} usable, {} with errors; {e} error{}, {w} warning{}",
+            "checked {n} participant{}: {usable} usable, {} not usable; {e} error{}, {w} warning{}",
             plural(n),
             n - usable,
             plural(e),

@@ -434,7 +434,17 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
             } else if tail.contains("there are no fields") {
                 d = d.expected("no keys here");
             }
-            d = d.hint("check the spelling (keys are lowercase, with `_` between words) and the indentation");
+            // The README's tables name nested keys with dots (`program.id`); written so, the
+            // key is one name that is not ours.
+            let parent = key.split('.').next().unwrap_or_default();
+            if key.contains('.') && tail.contains(&format!("`{parent}`")) {
+                let child = &key[parent.len() + 1..];
+                d = d.hint(format!(
+                    "`{key}` is `{child}:` indented under `{parent}:` (the tables write nested keys with dots): `{parent}:` on a line of its own, then `  {child}: …` below it"
+                ));
+            } else {
+                d = d.hint("check the spelling (keys are lowercase, with `_` between words) and the indentation");
+            }
         }
     } else if let Some(rest) = msg.strip_prefix("unknown variant `") {
         if let Some((val, tail)) = rest.split_once('`') {
@@ -450,12 +460,32 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
             .expected(format!("the key `{key}:`"))
             .hint(format!("add `{key}:` with a value"));
     } else if let Some(rest) = msg.strip_prefix("invalid type: ") {
-        if let Some((found, exp)) = rest.split_once(", expected ") {
-            d = d.found(found.to_string()).expected(exp.to_string());
+        match rest.split_once(", expected ") {
+            // "expected struct ModuleDef" names a type of ours, not what to write.
+            Some((found, exp)) if exp.starts_with("struct ") => {
+                let in_modules = d
+                    .field
+                    .as_deref()
+                    .is_some_and(|f| f.starts_with("modules["));
+                d.message = format!("{found} where keys and values belong");
+                d = d
+                    .found(found.to_string())
+                    .expected("a mapping of keys and values")
+                    .hint(if in_modules {
+                        "write each module as `- id: trend` (a mapping with `id:`), one per line, not as its id alone"
+                    } else {
+                        "write the keys this place takes on lines of their own, indented below it (`key: value`)"
+                    });
+            }
+            found_exp => {
+                if let Some((found, exp)) = found_exp {
+                    d = d.found(found.to_string()).expected(exp.to_string());
+                }
+                d = d.hint(
+                    "quote text that YAML would read as a number or date, and check the value's kind",
+                );
+            }
         }
-        d = d.hint(
-            "quote text that YAML would read as a number or date, and check the value's kind",
-        );
     } else if let Some(rest) = msg.strip_prefix("invalid value: ") {
         if let Some((found, exp)) = rest.split_once(", expected ") {
             d = d.found(found.to_string()).expected(exp.to_string());

@@ -593,9 +593,7 @@ mod tests {
         run_check_with(tmp.path(), as_of(), &opts, &mut verbose);
         assert!(String::from_utf8(verbose).unwrap().contains("P1: usable\n"));
         assert!(
-            out.ends_with(
-                "checked 2 participants: 2 usable, 0 with errors; 0 errors, 0 warnings\n"
-            ),
+            out.ends_with("checked 2 participants: 2 usable, 0 not usable; 0 errors, 0 warnings\n"),
             "{out}"
         );
     }
@@ -643,6 +641,29 @@ mod tests {
         );
     }
 
+    /// A wellness lead's first `check`: one file without its `unit` column (the participant is
+    /// still usable) ended "checked 6 participants: 6 usable, 0 with errors; 1 error", which
+    /// reads as a contradiction. The count is of participants left out, and says so.
+    #[test]
+    fn the_last_line_counts_participants_left_out_not_participants_with_errors() {
+        let tmp = program_dir();
+        add(
+            tmp.path(),
+            "P1",
+            &[
+                ("profile.yaml", &profile("P1")),
+                ("weights.csv", "date,weight\n2026-04-02,80\n"),
+            ],
+        );
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::PARTICIPANT_ERRORS, "{out}");
+        assert!(out.contains("P1: usable (1 error)"), "{out}");
+        assert!(
+            out.ends_with("checked 1 participant: 1 usable, 0 not usable; 1 error, 0 warnings\n"),
+            "{out}"
+        );
+    }
+
     #[test]
     fn warnings_and_errors_set_the_exit_code() {
         let tmp = program_dir();
@@ -664,7 +685,7 @@ mod tests {
         // Participants are reported in folder order.
         assert!(out.find("P0:").unwrap() < out.find("P1:").unwrap());
         assert!(
-            out.contains("checked 2 participants: 1 usable, 1 with errors; 1 error, 1 warning"),
+            out.contains("checked 2 participants: 1 usable, 1 not usable; 1 error, 1 warning"),
             "{out}"
         );
         let report = check_program(tmp.path(), as_of());
@@ -851,7 +872,7 @@ mod tests {
         // One warning per file for its rows before enrolment (25 in weights.csv, 2 in
         // intake.csv).
         assert!(
-            out.contains("checked 2 participants: 1 usable, 1 with errors; 1 error, 3 warnings"),
+            out.contains("checked 2 participants: 1 usable, 1 not usable; 1 error, 3 warnings"),
             "{out}"
         );
         // The summary: the error, the other participant's warning, then one line for P1's.

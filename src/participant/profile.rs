@@ -776,12 +776,14 @@ flags: [glucose-lowering-medication]
             let j = [0, 1, 4][i];
             assert_eq!(alone[0].to_string(), shown[j]);
         }
-        // Not a mapping: what the reading as a whole says, as before.
+        // Not a mapping: what the reading as a whole says, in words (it named our type,
+        // "expected struct ProfileDef").
         let (_, d) = parse("- a\n- b\n");
         assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].message, "sequence where keys and values belong");
         assert_eq!(
-            d[0].message,
-            "invalid type: sequence, expected struct ProfileDef"
+            d[0].expected.as_deref(),
+            Some("a mapping of keys and values")
         );
         // A missing key and a bad date together; the birth date's check against enrolment
         // is left out while enrolment cannot be read.

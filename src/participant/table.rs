@@ -162,8 +162,9 @@ pub struct Table {
     /// written, and its date), when it has any.
     serial_dates: Option<(SerialDates, String, NaiveDate)>,
     /// The order of the file's numeric dates (`13/05/2026`), when it has any and the program
-    /// sets no format.
+    /// sets no format, with the file's own date that tells it (as written, and its date).
     numeric_order: Option<NumericOrder>,
+    numeric_example: Option<(String, NaiveDate)>,
     /// When dates come from date rows above the measurements: the field of the time of day,
     /// which messages about a row's date point at.
     date_rows_in: Option<usize>,
@@ -274,6 +275,7 @@ impl Table {
             dates_in_utc: false,
             serial_dates: None,
             numeric_order: None,
+            numeric_example: None,
             date_rows_in: None,
             summary_rows: RefCell::new((0, None)),
             recognised: RefCell::default(),
@@ -327,15 +329,17 @@ impl Table {
             ));
         }
         parts.extend(self.recognised.borrow().iter().map(|w| w.to_string()));
-        if let Some(order) = self.numeric_order {
-            parts.push(
-                match order {
-                    NumericOrder::DayFirst => "dates such as `13/05/2026` read day first, the only order that reads every date of the file",
-                    NumericOrder::MonthFirst => "dates such as `05/13/2026` read month first, the only order that reads every date of the file",
-                    NumericOrder::YearFirst => "dates such as `26-05-13` read year first (2026-05-13), the only order that puts every date of the file within the program",
-                }
-                .to_string(),
-            );
+        // The file's own date that tells the order (a fixed example such as `05/13/2026` read
+        // as if the file held it).
+        if let (Some(order), Some((written, date))) = (self.numeric_order, &self.numeric_example) {
+            let only = match order {
+                NumericOrder::YearFirst => "puts every date of the file within the program",
+                _ => "reads every date of the file",
+            };
+            parts.push(format!(
+                "numeric dates read {} (`{written}` = {date}), the only order that {only}",
+                order.words()
+            ));
         }
         if let (n, Some((line, label))) = &*self.summary_rows.borrow() {
             let rows = if *n == 1 {
@@ -503,7 +507,8 @@ pub fn read_table(
         {
             Ok((serial, order)) => {
                 table.serial_dates = serial;
-                table.numeric_order = order;
+                table.numeric_order = order.as_ref().map(|(o, _, _)| *o);
+                table.numeric_example = order.map(|(_, s, d)| (s, d));
                 Some(table)
             }
             Err(d) => {
@@ -1823,7 +1828,7 @@ fn numeric_order(
     table: &Table,
     opts: &CsvOptions,
     ctx: &FileCtx,
-) -> Result<Option<NumericOrder>, Box<Diagnostic>> {
+) -> Result<Option<(NumericOrder, String, NaiveDate)>, Box<Diagnostic>> {
     if opts.date_format != "%Y-%m-%d" {
         return Ok(None);
     }
@@ -1874,7 +1879,21 @@ fn numeric_order(
     };
     let sep = dates[0].2.3;
     match fitting.as_slice() {
-        [one] => Ok(Some(*one)),
+        [one] => {
+            // The first date that no other order reads (it tells the order).
+            let at = |p: NumericParts, o: NumericOrder| place(p, o, span);
+            let (_, written, parts) = dates
+                .iter()
+                .find(|(_, _, p)| {
+                    NumericOrder::ALL
+                        .iter()
+                        .filter(|o| *o != one)
+                        .all(|o| at(*p, *o).is_none_or(|d| Some(d) == at(*p, *one)))
+                })
+                .unwrap_or(&dates[0]);
+            let date = at(*parts, *one).expect("the one order reads every such date");
+            Ok(Some((*one, (*written).to_string(), date)))
+        }
         // Two-digit years that no one order puts within the program, in a file of such dates:
         // which dates they are cannot be told, and dropping every row one by one would hide
         // it. Refused at the first date that gives it away.

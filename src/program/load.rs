@@ -789,6 +789,41 @@ modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
         assert_eq!(p.def.input.delimiter, None);
     }
 
+    /// A wellness lead writing program.yaml from the README's table wrote its keys as they are
+    /// named there (`program.id: fit`) and the modules as a list of ids; the messages said
+    /// "unknown key" with a hint about spelling, and "expected struct ModuleDef" with a hint
+    /// to quote numbers.
+    #[test]
+    fn the_tables_dotted_names_and_a_list_of_module_ids_are_explained() {
+        let dotted = "format_version: 1\nprogram.id: fit\n";
+        let e = parse_program(root(), dotted).unwrap_err();
+        let hint = e[0].hint.as_deref().unwrap_or_default();
+        assert!(
+            hint.contains("`program.id` is `id:` indented under `program:`"),
+            "{}",
+            e[0]
+        );
+        let ids = GOOD.replace(
+            "modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]",
+            "modules: [trend, energy, adherence, outcomes]",
+        );
+        let e = parse_program(root(), &ids).unwrap_err();
+        let d = &e[0];
+        assert!(!d.to_string().contains("struct"), "{d}");
+        assert_eq!(
+            d.expected.as_deref(),
+            Some("a mapping of keys and values"),
+            "{d}"
+        );
+        assert!(
+            d.hint
+                .as_deref()
+                .unwrap_or_default()
+                .contains("write each module as `- id: trend`"),
+            "{d}"
+        );
+    }
+
     #[test]
     fn input_and_activities_keys_are_checked() {
         let good = format!(

@@ -173,6 +173,21 @@ pub fn build(
     let state = guidance::state_of(plan, data, results);
     let no_loss = guidance::bmi_rules_out_loss(&state, &thresholds);
     let loss_goal = guidance::loss_is_goal(&state, &thresholds);
+    // A loss milestone shown as reached reads as praise for losing. Someone whose BMI is now
+    // in the underweight range or flagged low (BMI 17.0 read a green "3 % loss · reached"), who
+    // is pregnant, or whose loss was never a goal (a starting BMI already below the loss
+    // cut-off, where the report says the weight need not come down) sees no loss milestones.
+    let praise_loss = !(state
+        .clinical_flags
+        .iter()
+        .any(|c| c == "low_bmi" || c == "pregnancy")
+        || state
+            .bmi
+            .is_some_and(|b| b < thresholds.underweight_bmi_below)
+        || v.outcomes
+            .as_ref()
+            .and_then(|o| o.bmi_baseline_kg_m2)
+            .is_some_and(|b| b < thresholds.loss_cut(state.older)));
 
     // Weight chart, with the target weight when there is a starting weight.
     let target_kg = v
@@ -257,10 +272,20 @@ pub fn build(
                 .and_then(|a| a.weigh_ins_per_week)
                 .is_some_and(|w| w >= p.targets.weigh_ins_per_week),
         ),
-        summary: summary(&v, units, plan.period.to),
+        summary: summary(
+            &v,
+            units,
+            plan.period.to,
+            data.weights
+                .iter()
+                .map(|w| w.date)
+                .filter(|d| *d <= plan.period.to)
+                .max(),
+        ),
         milestones: v
             .outcomes
             .as_ref()
+            .filter(|_| praise_loss)
             .map(|o| milestones(&o.milestones, loss_goal, left.is_some()))
             .unwrap_or_default(),
         weight_chart: weight_view,
@@ -334,8 +359,13 @@ fn change_words(
 }
 
 /// Key figures: current and starting weight, change, recent rate, BMI. `to` is the period's
-/// last day.
-fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
+/// last day, `last_weigh_in` the day of the last weigh-in up to it.
+fn summary(
+    v: &BuiltinViews,
+    units: UnitSystem,
+    to: NaiveDate,
+    last_weigh_in: Option<NaiveDate>,
+) -> Vec<Kv> {
     let (trend, outcomes) = (v.trend.as_ref(), v.outcomes.as_ref());
     let mut summary = Vec::new();
     if let Some(w) = shown_current_kg(trend, outcomes) {
@@ -343,6 +373,12 @@ fn summary(v: &BuiltinViews, units: UnitSystem, to: NaiveDate) -> Vec<Kv> {
         // current one (someone who stopped recording in July read "Current weight" in a
         // September report).
         let label = match trend.and_then(|t| t.days_since_last_weigh_in) {
+            // Without a trend (two weigh-ins in three months) the figure is the last
+            // weigh-in itself, not a trend: it read "Current weight (trend)".
+            _ if trend.and_then(|t| t.current_weight_kg.value).is_none() => match last_weigh_in {
+                Some(d) => format!("Weight at your last weigh-in ({})", fmt::date(d)),
+                None => "Weight at your last weigh-in".to_string(),
+            },
             Some(d) if d >= guidance::RECENT_WEIGH_IN_DAYS => format!(
                 "Weight at your last weigh-in ({}, trend)",
                 fmt::date(to - chrono::Duration::days(d.round() as i64))
@@ -731,6 +767,12 @@ fn weight_chart(
         ],
         rows: Vec::new(),
     };
+    // With fewer weigh-in days than a trend needs the trend series is empty: its legend
+    // entries and the words for it described a line the chart did not draw.
+    let has_trend = v
+        .trend
+        .as_ref()
+        .is_some_and(|t| !t.weight_trend.points.is_empty());
     if let Some(t) = &v.trend {
         lines.push(LineSeries {
             label: "Weigh-ins".into(),
@@ -743,19 +785,21 @@ fn weight_chart(
             style: LineStyle::Dots,
         });
         let s = &t.weight_trend;
-        bands.push(BandSeries {
-            label: "Trend 95 % band".into(),
-            points: s
-                .points
-                .iter()
-                .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
-                .collect(),
-        });
-        lines.push(LineSeries {
-            label: "Trend".into(),
-            points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
-            style: LineStyle::Solid,
-        });
+        if has_trend {
+            bands.push(BandSeries {
+                label: "Trend 95 % band".into(),
+                points: s
+                    .points
+                    .iter()
+                    .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
+                    .collect(),
+            });
+            lines.push(LineSeries {
+                label: "Trend".into(),
+                points: s.points.iter().map(|p| (p.date, conv(p.value))).collect(),
+                style: LineStyle::Solid,
+            });
+        }
         // One row per Monday-to-Sunday week: the trend on the week's last day in the series,
         // the Sunday or the last weigh-in's day, as `weight_trend_weekly` in weekly.csv.
         let n = s.points.len();
@@ -825,6 +869,13 @@ fn weight_chart(
         target_kg.is_some(),
         forecast_to,
     );
+    if !has_trend {
+        alt = alt.replacen(
+            "weigh-ins, the smoothed trend with its 95 % band",
+            "weigh-ins (too few yet for a smoothed trend)",
+            1,
+        );
+    }
     // Steps the trend left out: the dots before each sit off the line by the steps after them
     // (with a scale put back, those before the first step sit on it); say where and why.
     if let Some(t) = v.trend.as_ref().filter(|t| !t.weigh_in_steps.is_empty()) {
@@ -1230,7 +1281,11 @@ fn adherence_section(
     if let Some(v) = a.longest_weigh_in_streak_days {
         items.push(Kv::new(
             "Longest run of daily weigh-ins since you joined",
-            &format!("{} days", fmt::fixed(v, 0)),
+            &format!(
+                "{} {}",
+                fmt::fixed(v, 0),
+                if v.round() == 1.0 { "day" } else { "days" }
+            ),
         ));
     }
     let mut table = TableView {
@@ -1390,6 +1445,19 @@ mod activity_unread_tests {
         );
         // The weekly table's column counts days too.
         assert_eq!(view.chart.table.header[1], "Weigh-in days");
+        // Someone weighing in every other day read "Longest run of daily weigh-ins since you
+        // joined 1 days".
+        let one = AdherenceResults {
+            longest_weigh_in_streak_days: Some(1.0),
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(&one, 150.0, &ActivityUnread::Nothing, "May 2026");
+        let streak = view
+            .items
+            .iter()
+            .find(|k| k.label.starts_with("Longest run"))
+            .unwrap();
+        assert_eq!(streak.value, "1 day");
     }
 
     /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the
@@ -1521,6 +1589,7 @@ mod activity_unread_tests {
             &v,
             UnitSystem::Metric,
             NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+            None,
         )
         .into_iter()
         .find(|k| k.label == "Back up from your lowest")
@@ -1555,7 +1624,7 @@ mod activity_unread_tests {
             outcomes: None,
         };
         let to = NaiveDate::from_ymd_opt(2026, 9, 30).unwrap();
-        let row = &summary(&v, UnitSystem::Metric, to)[0];
+        let row = &summary(&v, UnitSystem::Metric, to, None)[0];
         assert_eq!(
             row.label,
             "Weight at your last weigh-in (15 Jul 2026, trend)"
@@ -1567,7 +1636,7 @@ mod activity_unread_tests {
             ..v
         };
         assert_eq!(
-            summary(&v, UnitSystem::Metric, to)[0].label,
+            summary(&v, UnitSystem::Metric, to, None)[0].label,
             "Current weight (trend)"
         );
     }
@@ -1627,6 +1696,7 @@ mod activity_unread_tests {
                 v,
                 UnitSystem::Metric,
                 NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+                None,
             )
             .iter()
             .any(|k| k.label.starts_with("Recent rate"))

@@ -88,7 +88,7 @@ fn assert_report(text: &str) {
         );
     }
     assert!(
-        text.contains("checked 15 participants: 13 usable, 2 with errors; 5 errors, 8 warnings"),
+        text.contains("checked 15 participants: 13 usable, 2 not usable; 5 errors, 8 warnings"),
         "{text}"
     );
 }

@@ -25,20 +25,25 @@ struct Sample {
 }
 
 fn sample() -> Sample {
+    load(&repo_root().join("sample-program"), AS_OF)
+}
+
+/// Every usable participant of the program at `root`, reported as a run with `--as-of as_of`
+/// would report them.
+fn load(root: &std::path::Path, as_of: &str) -> Sample {
     use cohortpress::cmd::cli::{Cli, Command};
-    let root = repo_root().join("sample-program");
     let cli = Cli::try_parse_from([
         "cohortpress",
         "run",
         root.to_str().unwrap(),
         "--as-of",
-        AS_OF,
+        as_of,
     ])
     .unwrap();
     let Command::Run(args) = cli.command else {
         panic!("not a run command")
     };
-    let today = chrono::NaiveDate::parse_from_str(AS_OF, "%Y-%m-%d").unwrap();
+    let today = chrono::NaiveDate::parse_from_str(as_of, "%Y-%m-%d").unwrap();
     let options = cohortpress::cmd::run::run_options(&args);
     let plan = cohortpress::run::plan::plan(&options, today).unwrap_or_else(|e| {
         panic!("plan: {e}");
@@ -369,4 +374,114 @@ fn context_md_documents_exactly_the_followup_fields() {
         &context_paths(std::slice::from_ref(&ctx)),
         &documented_paths(&doc, "followup.html.hbs"),
     );
+}
+
+/// Writes a participant folder of `dir` (a woman born 1985, enrolled 1 April 2026) with the
+/// weigh-ins given, in kg.
+fn person(dir: &std::path::Path, id: &str, height_cm: u32, weights: &[(String, f64)]) {
+    let p = dir.join("participants").join(id);
+    std::fs::create_dir_all(&p).unwrap();
+    std::fs::write(
+        p.join("profile.yaml"),
+        format!(
+            "id: {id}\nsex: female\nbirth_date: 1985-06-01\nheight: {height_cm} cm\nenrolled: 2026-04-01\ngroups: {{ site: Kiln Row }}\n"
+        ),
+    )
+    .unwrap();
+    let mut csv = String::from("date,weight,unit\n");
+    for (d, w) in weights {
+        csv.push_str(&format!("{d},{w:.1},kg\n"));
+    }
+    std::fs::write(p.join("weights.csv"), csv).unwrap();
+}
+
+/// Weigh-ins every other day from 1 April to 29 June 2026, falling linearly from `from_kg` to
+/// `to_kg`.
+fn falling(from_kg: f64, to_kg: f64) -> Vec<(String, f64)> {
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    (0..45)
+        .map(|i| {
+            let d = start + chrono::Duration::days(2 * i);
+            (d.to_string(), from_kg + (to_kg - from_kg) * i as f64 / 44.0)
+        })
+        .collect()
+}
+
+/// A hand-made program (wellness lead, June 2026): a woman of BMI 17 read a green "3 % loss ·
+/// reached" and one who started at BMI 22.7, told her weight need not come down, read the
+/// same praise; a participant with two weigh-ins in three months read "Current weight
+/// (trend) 90.1 kg" although no trend could be estimated.
+#[test]
+fn loss_is_praised_only_where_it_is_a_goal_and_a_weight_without_a_trend_is_not_called_one() {
+    let t = ProgramTest::fixture("report-small");
+    // BMI 17.6 → 16.9 at 170 cm; 22.7 → 21.6 at 168 cm; 32.9 → 31.2 at 168 cm (the control).
+    person(&t.dir, "UW-01", 170, &falling(50.8, 48.9));
+    person(&t.dir, "NW-01", 168, &falling(64.0, 61.0));
+    person(&t.dir, "OB-01", 168, &falling(93.0, 88.0));
+    person(
+        &t.dir,
+        "TW-01",
+        170,
+        &[("2026-04-02".into(), 92.4), ("2026-06-10".into(), 90.1)],
+    );
+    let s = load(&t.dir, "2026-07-10");
+    let ctx = |id: &str| {
+        &s.people
+            .get(id)
+            .unwrap_or_else(|| panic!("{id} not reported"))
+            .3
+    };
+    let reached = |id: &str| {
+        ctx(id)
+            .milestones
+            .iter()
+            .filter(|m| m.reached)
+            .map(|m| m.label.clone())
+            .collect::<Vec<_>>()
+    };
+    assert!(
+        reached("OB-01").contains(&"5 % loss".to_string()),
+        "{:?}",
+        reached("OB-01")
+    );
+    for id in ["UW-01", "NW-01"] {
+        assert!(ctx(id).milestones.is_empty(), "{id}: {:?}", reached(id));
+    }
+    let first = |id: &str| {
+        (
+            ctx(id).summary[0].label.clone(),
+            ctx(id).summary[0].value.clone(),
+        )
+    };
+    assert_eq!(
+        first("TW-01"),
+        (
+            "Weight at your last weigh-in (10 Jun 2026)".to_string(),
+            "90.1 kg".to_string()
+        )
+    );
+    assert_eq!(first("OB-01").0, "Current weight (trend)");
+    // Nor does its chart describe a trend line it does not draw.
+    let alt = &ctx("TW-01").weight_chart.alt;
+    assert!(
+        alt.contains("weigh-ins (too few yet for a smoothed trend)"),
+        "{alt}"
+    );
+    assert!(!alt.contains("95 % band"), "{alt}");
+    assert!(
+        ctx("OB-01")
+            .weight_chart
+            .alt
+            .contains("the smoothed trend with its 95 % band")
+    );
+    // The built-in template's caption and the empty table behind the chart said the same.
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-07-10", "--formats", "html"]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let html = |id: &str| {
+        std::fs::read_to_string(t.dir.join(format!("reports/participants/{id}.html"))).unwrap()
+    };
+    for words in ["the shaded band is its 95 % range", "Data behind the chart"] {
+        assert!(!html("TW-01").contains(words), "TW-01: {words}");
+        assert!(html("OB-01").contains(words), "OB-01: {words}");
+    }
 }

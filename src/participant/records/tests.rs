@@ -1852,3 +1852,27 @@ fn out_of_range_activity_values_are_quoted_as_written() {
         "{diags:#?}"
     );
 }
+
+/// A spreadsheet's `4/2/2026` and `4/15/2026`: the note said "dates such as `05/13/2026` read
+/// month first", a date the file does not hold. It names the file's own date that tells.
+#[test]
+fn the_order_of_numeric_dates_is_shown_on_the_files_own_date() {
+    let mut diags = Vec::new();
+    let c = ctx("weights.csv");
+    let w = parse_weights(
+        "date,weight,unit\n4/2/2026,72.5,kg\n4/15/2026,72.4,kg\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 2);
+    let notes = c.take_notes();
+    assert_eq!(notes.len(), 1, "{notes:?}");
+    assert_eq!(
+        notes[0].message,
+        "numeric dates read month first (`4/15/2026` = 2026-04-15), the only order that reads every date of the file"
+    );
+}
