@@ -178,6 +178,7 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
             only: plan.only.clone(),
             discovery: discovery.iter().map(DiagRecord::from_diagnostic).collect(),
             participants: records.iter().map(|r| r.id.clone()).collect(),
+            outputs: staging.files(),
         };
         let phase = Instant::now();
         staging.write(shard::SHARD_FILE, &file.to_bytes())?;
