@@ -91,6 +91,19 @@ fn group_ledger_reached_through_a_link_is_judged_where_it_really_is() {
         before,
         "nothing written among the inputs"
     );
+    // `..` after the link is the participant folder's parent, `participants/`, as the system
+    // resolves it (not the link's folder, as the path reads): `LINK/../ledger` put the ledger in
+    // `participants/ledger`, which every later run read as a participant without a profile.
+    let state = into_participant
+        .join("../ledger")
+        .to_string_lossy()
+        .into_owned();
+    let o = t.run(&[&args[..], &["--state", &state]].concat());
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(o.stderr.contains("participants/"), "{}", o.stderr);
+    assert!(!t.dir.join("participants/ledger").exists());
+    assert!(!outside.join("ledger").exists());
+    assert_eq!(tree_hashes(&t.dir), before);
 
     // Into the output folder through a link (a complete output exists there first).
     let out = outside.join("out");
