@@ -401,8 +401,7 @@ pub fn finish(
         }
         let program_id = plan.program.info.id.clone();
         let (period_from, period_to) = (plan.period.from.to_string(), plan.period.to.to_string());
-        let (mut g, published) =
-            group::summarize_release(&rows, &opts, &ledger.history(&program_id));
+        let (mut g, published) = group::summarize_release(&rows, &opts, &ledger.history());
         let headline = report::group::headline(&g, &format!("{period_from} to {period_to}"));
         g.releases = ledger.earlier_headlines(&program_id, &period_to);
         g.releases.push(headline.clone());
