@@ -244,7 +244,7 @@ fn existing_output(dir: &Path) -> Result<Existing, String> {
             Some("shard") => OutputScope::Shard,
             _ => OutputScope::Complete,
         };
-        if let Some(found) = unlisted_files(dir, &m) {
+        if let Some(found) = unlisted_files(dir, MANIFEST, &listed_paths(&m["outputs"])) {
             return Err(found);
         }
         return Ok(Existing::Ours(
@@ -252,19 +252,56 @@ fn existing_output(dir: &Path) -> Result<Existing, String> {
             m["program_id"].as_str().map(str::to_string),
         ));
     }
-    if let Some(s) = json("shard.json")
+    if let Some(s) = json(SHARD_MARKER)
         && s["format"].is_u64()
         && s["shard"].is_u64()
         && s["key"]["tool"]
             .as_str()
             .is_some_and(|t| t.starts_with("cohortpress "))
     {
+        // A shard's folder is checked like an output with a manifest: a `shard.json` copied
+        // into a home folder (to read it) made the whole folder "ours", and a run with
+        // `--out` there deleted everything in it; so did a re-run of a shard over files put
+        // in its folder since (notes, a job's log). Shard files written before the list of
+        // outputs was kept list their participants, whose files are known.
+        let listed = match s["outputs"].as_array() {
+            Some(_) => listed_paths(&s["outputs"]),
+            None => s["participants"]
+                .as_array()
+                .into_iter()
+                .flatten()
+                .filter_map(|id| id.as_str())
+                .flat_map(|id| {
+                    [
+                        format!("participants/{id}.html"),
+                        format!("participants/{id}.pdf"),
+                        format!("cache/{id}.json"),
+                    ]
+                })
+                .collect(),
+        };
+        if let Some(found) = unlisted_files(dir, SHARD_MARKER, &listed) {
+            return Err(found);
+        }
         return Ok(Existing::Ours(
             OutputScope::Shard,
             s["program_id"].as_str().map(str::to_string),
         ));
     }
     Err("it is not empty and holds no cohortpress manifest.json".into())
+}
+
+/// The file that makes a shard's output folder recognisably ours (`run --shard`).
+const SHARD_MARKER: &str = "shard.json";
+
+/// The `path` of each entry of a manifest's (or shard file's) `outputs` array.
+fn listed_paths(outputs: &serde_json::Value) -> std::collections::HashSet<String> {
+    outputs
+        .as_array()
+        .into_iter()
+        .flatten()
+        .filter_map(|o| o["path"].as_str().map(str::to_string))
+        .collect()
 }
 
 /// The end of the message about files in an output that its manifest does not list.
@@ -283,15 +320,14 @@ fn is_folder_litter(name: &str) -> bool {
 /// What an earlier output holds that its manifest does not list: files someone put there (last
 /// month's group report kept in an `archive/` folder, notes) or links. A run replaces the folder
 /// as a whole, so they would be deleted with it; `Some` names them. Folders count by what they
-/// hold (an empty one holds nothing to lose); the manifest itself, a staging marker left by a
-/// run stopped at its very end, and file managers' litter are not counted.
-fn unlisted_files(dir: &Path, manifest: &serde_json::Value) -> Option<String> {
-    let listed: std::collections::HashSet<&str> = manifest["outputs"]
-        .as_array()
-        .into_iter()
-        .flatten()
-        .filter_map(|o| o["path"].as_str())
-        .collect();
+/// hold (an empty one holds nothing to lose); the marker itself (`manifest.json`, or a shard's
+/// `shard.json`), a staging marker left by a run stopped at its very end, and file managers'
+/// litter are not counted.
+fn unlisted_files(
+    dir: &Path,
+    marker: &str,
+    listed: &std::collections::HashSet<String>,
+) -> Option<String> {
     let mut found = Vec::new();
     let mut count = 0usize;
     for entry in walkdir::WalkDir::new(dir)
@@ -312,7 +348,7 @@ fn unlisted_files(dir: &Path, manifest: &serde_json::Value) -> Option<String> {
                     .join("/");
                 let name = e.file_name().to_string_lossy();
                 let ours = e.file_type().is_dir()
-                    || (e.depth() == 1 && (name == "manifest.json" || name == STAGING_MARKER))
+                    || (e.depth() == 1 && (name == marker || name == STAGING_MARKER))
                     || listed.contains(rel.as_str())
                     || (e.file_type().is_file() && is_folder_litter(&name));
                 (rel, !ours)
@@ -346,7 +382,7 @@ fn unlisted_files(dir: &Path, manifest: &serde_json::Value) -> Option<String> {
         };
         format!(
             "it holds a previous cohortpress output, but also {}{more} that the output's \
-             manifest.json does not list (put there since, or links); {UNLISTED_ADVICE}",
+             {marker} does not list (put there since, or links); {UNLISTED_ADVICE}",
             found.join(", ")
         )
     })

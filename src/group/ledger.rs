@@ -375,13 +375,17 @@ impl Ledger {
         &self.dir
     }
 
-    /// What earlier releases of `program` published, for the audit.
-    pub fn history(&self, program: &str) -> History {
+    /// What every earlier release the ledger holds published, for the audit: also those of
+    /// another `program.id`. A program renamed (`program.id` edited for a re-issue) keeps its
+    /// people, its ledger and its sponsor, and its report was audited against none of its
+    /// earlier releases. Person tokens depend on the participant id alone, so another
+    /// program's people sharing the ledger only make the audit stricter.
+    pub fn history(&self) -> History {
         let mut h = History {
             secret: Some(self.secret),
             ..Default::default()
         };
-        for r in self.releases.iter().filter(|r| r.program == program) {
+        for r in &self.releases {
             h.counts.extend(r.counts.iter().cloned());
             if r.count_labels.len() == r.counts.len() {
                 h.count_labels.extend(r.count_labels.iter().cloned());

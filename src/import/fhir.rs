@@ -624,6 +624,26 @@ pub fn import(
             )));
         }
         let dir = base.join(&pid);
+        // A folder the program has whose name differs only in case: on a case-sensitive file
+        // system a second folder was written beside it, and `run` then leaves both out (the
+        // participant already there included), while the import said it had succeeded.
+        if let Some(existing) = std::fs::read_dir(&base).ok().and_then(|entries| {
+            entries
+                .filter_map(Result::ok)
+                .map(|e| e.file_name().to_string_lossy().into_owned())
+                .find(|n| *n != pid && n.eq_ignore_ascii_case(&pid))
+        }) {
+            return Err((
+                ImportFailure::Write,
+                format!(
+                    "{} holds `{existing}`, which differs from `{pid}` only in case; one person \
+                     would be two participant folders, and runs leave out both (the import never \
+                     changes existing participant folders: map the patient to `{existing}`'s \
+                     folder by hand, or to another id with --ids)",
+                    base.display()
+                ),
+            ));
+        }
         if dir.exists() {
             return Err((
                 ImportFailure::Write,

@@ -123,24 +123,22 @@ pub fn state_dir_problem(
     })
 }
 
-/// `path` with every link resolved: the nearest folder on it that exists, canonicalized, plus
-/// the names that do not exist yet (`.` and `..` resolved lexically first).
+/// `path` with every link resolved as the system resolves it: the longest leading part of it
+/// that exists, canonicalized, plus the names that do not exist yet (their `.` and `..`
+/// resolved lexically: folders still to be made are no links). A `..` is resolved where it
+/// stands, after the links before it: `LINK/../x`, with LINK a link to
+/// `participants/SG-003`, is `participants/x` (resolved lexically first, it read as a folder
+/// beside the link, and the ledger was made in `participants/`).
 fn real_path(path: &Path) -> PathBuf {
-    let path = lexical(path);
-    let mut missing = Vec::new();
-    let mut existing = path.as_path();
-    loop {
-        if let Ok(real) = std::fs::canonicalize(existing) {
-            return real.join(missing.iter().rev().collect::<PathBuf>());
-        }
-        match (existing.parent(), existing.file_name()) {
-            (Some(parent), Some(name)) => {
-                missing.push(name.to_os_string());
-                existing = parent;
-            }
-            _ => return path,
+    let components: Vec<_> = path.components().collect();
+    for at in (1..=components.len()).rev() {
+        let existing: PathBuf = components[..at].iter().collect();
+        if let Ok(real) = std::fs::canonicalize(&existing) {
+            let rest: PathBuf = components[at..].iter().collect();
+            return lexical(&real.join(rest));
         }
     }
+    lexical(path)
 }
 
 /// [`state_dir_problem`] on the paths as written.

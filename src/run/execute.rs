@@ -178,6 +178,7 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
             only: plan.only.clone(),
             discovery: discovery.iter().map(DiagRecord::from_diagnostic).collect(),
             participants: records.iter().map(|r| r.id.clone()).collect(),
+            outputs: staging.files(),
         };
         let phase = Instant::now();
         staging.write(shard::SHARD_FILE, &file.to_bytes())?;
@@ -400,8 +401,7 @@ pub fn finish(
         }
         let program_id = plan.program.info.id.clone();
         let (period_from, period_to) = (plan.period.from.to_string(), plan.period.to.to_string());
-        let (mut g, published) =
-            group::summarize_release(&rows, &opts, &ledger.history(&program_id));
+        let (mut g, published) = group::summarize_release(&rows, &opts, &ledger.history());
         let headline = report::group::headline(&g, &format!("{period_from} to {period_to}"));
         g.releases = ledger.earlier_headlines(&program_id, &period_to);
         g.releases.push(headline.clone());

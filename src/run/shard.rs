@@ -90,6 +90,11 @@ pub struct ShardFile {
     pub discovery: Vec<DiagRecord>,
     /// Ids of the participants processed, sorted.
     pub participants: Vec<String>,
+    /// Every other file the shard wrote (path, blake3, size), as a manifest lists them: a
+    /// later run replaces the folder only when it holds nothing else (see
+    /// [`crate::output`]). Empty in shard files written before it was kept.
+    #[serde(default)]
+    pub outputs: Vec<crate::output::OutputFile>,
 }
 
 impl ShardFile {

@@ -271,6 +271,25 @@ fn two_patients_for_one_participant_folder_are_refused_by_name() {
         !out.exists() || fs::read_dir(&out).unwrap().next().is_none(),
         "nothing written"
     );
+    // A patient whose id differs only in case from a participant folder the program already
+    // has: the import wrote `sg-001` beside `SG-001`, said it had imported one participant
+    // (exit 0), and from then on every run left SG-001 out with the new folder.
+    let out = dir.path().join("p3");
+    fs::create_dir_all(out.join("participants/SG-001")).unwrap();
+    fs::write(out.join("participants/SG-001/profile.yaml"), "id: SG-001\n").unwrap();
+    fs::write(&file, ndjson(&["sg-001", "sg-002"])).unwrap();
+    let o = import(&file, &out, None);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(6), "{err}");
+    assert!(
+        err.contains("`SG-001`, which differs from `sg-001` only in case"),
+        "{err}"
+    );
+    let names: Vec<_> = fs::read_dir(out.join("participants"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .collect();
+    assert_eq!(names, ["SG-001"], "nothing written");
 }
 
 /// A write that fails part-way (here `participants` is a file, so its folder cannot be made)

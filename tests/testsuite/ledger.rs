@@ -91,6 +91,19 @@ fn group_ledger_reached_through_a_link_is_judged_where_it_really_is() {
         before,
         "nothing written among the inputs"
     );
+    // `..` after the link is the participant folder's parent, `participants/`, as the system
+    // resolves it (not the link's folder, as the path reads): `LINK/../ledger` put the ledger in
+    // `participants/ledger`, which every later run read as a participant without a profile.
+    let state = into_participant
+        .join("../ledger")
+        .to_string_lossy()
+        .into_owned();
+    let o = t.run(&[&args[..], &["--state", &state]].concat());
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(o.stderr.contains("participants/"), "{}", o.stderr);
+    assert!(!t.dir.join("participants/ledger").exists());
+    assert!(!outside.join("ledger").exists());
+    assert_eq!(tree_hashes(&t.dir), before);
 
     // Into the output folder through a link (a complete output exists there first).
     let out = outside.join("out");
@@ -185,6 +198,84 @@ fn a_run_into_another_folder_is_audited_against_the_programs_ledger() {
             .join("elsewhere.ledger/ledger.json")
             .is_file()
     );
+}
+
+/// A program renamed (`program.id` edited, e.g. for a re-issue) keeps its participants, its
+/// output's ledger and its sponsor; the ledger's audit took only the releases of the new id, so
+/// the re-issue was audited against nothing, with no word. The sample's September report
+/// printed 30 people at 3 % loss and the month cut two days short printed 31 under the new id:
+/// the difference is one person's milestone. Every release the ledger holds is audited
+/// against (person tokens depend on the participant id alone; another program's people only
+/// make the audit stricter).
+#[test]
+fn a_program_renamed_is_audited_against_the_releases_of_its_old_name() {
+    let t = ProgramTest::sample();
+    let as_of = ["--as-of", "2026-10-05", "--formats", "html"];
+    let o = t.run(&[&["run", "{dir}"][..], &as_of].concat());
+    assert_eq!(o.code, 4, "{o:?}"); // the sample's planted errors
+    let yaml_path = t.dir.join("program.yaml");
+    let yaml = std::fs::read_to_string(&yaml_path).unwrap();
+    assert!(yaml.contains("id: steady-ground-2026 "));
+    let yaml = yaml.replace("id: steady-ground-2026 ", "id: steady-ground-2026-reissue ");
+    std::fs::write(&yaml_path, yaml).unwrap();
+    let other = t.dir.parent().unwrap().join("reissue");
+    let other_s = other.to_string_lossy().into_owned();
+    let cut = [
+        "--from",
+        "2026-09-01",
+        "--to",
+        "2026-09-28",
+        "--out",
+        &other_s,
+    ];
+    let o = t.run(&[&["run", "{dir}"][..], &as_of, &cut].concat());
+    assert_eq!(o.code, 4, "{o:?}");
+    // Every count printed exactly in both reports, by where it stands in group.json.
+    fn exact_counts(v: &serde_json::Value, path: String, out: &mut Vec<(String, u64)>) {
+        match v {
+            serde_json::Value::Object(m) => {
+                if let Some(n) = m.get("value").and_then(serde_json::Value::as_u64) {
+                    out.push((path.clone(), n));
+                }
+                for (k, x) in m {
+                    exact_counts(x, format!("{path}.{k}"), out);
+                }
+            }
+            serde_json::Value::Array(a) => {
+                for (i, x) in a.iter().enumerate() {
+                    exact_counts(x, format!("{path}[{i}]"), out);
+                }
+            }
+            _ => {}
+        }
+    }
+    let counts = |dir: &std::path::Path| {
+        let g: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(dir.join("metrics/group.json")).unwrap())
+                .unwrap();
+        let mut out = Vec::new();
+        exact_counts(&g["program"], "program".into(), &mut out);
+        exact_counts(&g["splits"], "splits".into(), &mut out);
+        out
+    };
+    let first = counts(&t.dir.join("reports"));
+    let second = counts(&other);
+    let reached_3 = "program.stats.milestones[0].reached";
+    assert!(
+        first.iter().any(|(p, n)| p == reached_3 && *n == 30),
+        "{first:?}"
+    );
+    let small: Vec<String> = second
+        .iter()
+        .filter(|(p, _)| !p.contains("trajectory"))
+        .filter_map(|(p, n)| {
+            let (_, m) = first.iter().find(|(q, _)| q == p)?;
+            (1..11)
+                .contains(&n.abs_diff(*m))
+                .then(|| format!("{p}: {m} then {n}"))
+        })
+        .collect();
+    assert!(small.is_empty(), "{small:?}");
 }
 
 /// Runs into different output folders may share one ledger (the program's): a run waits for

@@ -650,3 +650,52 @@ fn an_only_run_writes_no_group_report_to_difference_against_the_complete_one() {
         "{outputs:?}"
     );
 }
+
+/// A shard's folder is recognised by its `shard.json`, which made the whole folder the tool's
+/// own whatever else it held: a `shard.json` copied into a home folder (to read it), then a
+/// run with `--out` naming that folder, deleted every file in it; so did a shard run again
+/// over files put in its folder since (notes, a scheduler's log). Both are refused now, as an
+/// output with a manifest is, and nothing is touched.
+#[test]
+fn a_shard_json_never_makes_a_folder_of_someone_elses_replaceable() {
+    let t = small();
+    let shard = beside(&t, "shard-1");
+    let o = run_to(&t, &shard, &["--shard", "1/1"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    // A home folder with a copy of the shard's shard.json.
+    let home = beside(&t, "home");
+    foreign_folder(&home.join("Documents"));
+    std::fs::copy(shard.join("shard.json"), home.join("shard.json")).unwrap();
+    let before = tree_hashes(&home);
+    for extra in [&[][..], &["--shard", "1/1"][..]] {
+        let o = run_to(&t, &home, extra);
+        assert_eq!(o.code, 2, "{extra:?}: {o:?}");
+        assert!(o.stderr.contains("Documents/thesis.txt"), "{}", o.stderr);
+        assert!(
+            o.stderr.contains("shard.json does not list"),
+            "{}",
+            o.stderr
+        );
+        assert_eq!(tree_hashes(&home), before, "{extra:?}");
+        no_leftovers(home.parent().unwrap(), "home");
+    }
+    // A note put into a shard's own folder survives running the shard again.
+    std::fs::write(shard.join("notes.txt"), "ask about clean-b\n").unwrap();
+    let before = tree_hashes(&shard);
+    let o = run_to(&t, &shard, &["--shard", "1/1"]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(o.stderr.contains("`notes.txt`"), "{}", o.stderr);
+    assert_eq!(tree_hashes(&shard), before);
+    // Without the note the shard's folder is its own again, and a shard file of the older
+    // format (no list of outputs) is known by its participants' files.
+    std::fs::remove_file(shard.join("notes.txt")).unwrap();
+    let o = run_to(&t, &shard, &["--shard", "1/1"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    let mut file: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(shard.join("shard.json")).unwrap()).unwrap();
+    assert!(file["outputs"].as_array().is_some_and(|a| !a.is_empty()));
+    file.as_object_mut().unwrap().remove("outputs");
+    std::fs::write(shard.join("shard.json"), file.to_string()).unwrap();
+    let o = run_to(&t, &shard, &["--shard", "1/1"]);
+    assert_eq!(o.code, 0, "{o:?}");
+}
