@@ -79,6 +79,9 @@ pub fn reason(code: &str) -> &'static str {
         "very_low_implied_intake" => {
             "Weight coming down as fast as only a very low intake would make it, or faster than eating nothing explains (a very low intake, or a step in the weigh-ins?)"
         }
+        "forecast_underweight" => {
+            "At the intake the weight trend implies, weight would fall into the underweight range before the forecast's end"
+        }
         "low_intake" => "Logged intake below the usual floor for eating less without supervision",
         "low_bmi" => {
             "BMI in the underweight range, or low for the person's age while weight is still coming down"

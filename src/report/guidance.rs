@@ -50,7 +50,7 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 9] = [
+pub const HOLDING_FLAGS: [&str; 10] = [
     "fast_loss",
     "fast_gain",
     // Clinical only in the period a step in the weigh-ins is first found: it may be a real
@@ -60,6 +60,8 @@ pub const HOLDING_FLAGS: [&str; 9] = [
     // The weight trend implies an intake below a very-low-calorie diet's, or a fall faster
     // than eating nothing explains (energy module).
     "very_low_implied_intake",
+    // At the implied intake, weight heads below BMI 18.5 before the forecast's end (energy).
+    "forecast_underweight",
     "low_intake",
     "low_bmi",
     "medication_review",

@@ -9,6 +9,10 @@ use serde::Serialize;
 struct Manifest<'a> {
     tool: String,
     program_id: &'a str,
+    /// blake3 of `program.yaml` as read: targets, guidance, privacy and module settings.
+    program_yaml_blake3: &'a str,
+    /// blake3 over the template override files (`built-in` without any).
+    templates_blake3: &'a str,
     period_from: String,
     period_to: String,
     as_of: String,
@@ -20,7 +24,8 @@ struct Manifest<'a> {
     outputs: Vec<OutputFile>,
 }
 
-/// The run manifest (JSON): tool version, settings, input hashes, every output with its
+/// The run manifest (JSON): tool version, settings (with the hashes of `program.yaml` and the
+/// template overrides), input hashes, every output with its
 /// checksum, counts. It holds no clock time, so an unchanged re-run gives identical bytes.
 pub fn manifest(
     plan: &RunPlan,
@@ -31,6 +36,8 @@ pub fn manifest(
     let m = Manifest {
         tool: format!("cohortpress {}", env!("CARGO_PKG_VERSION")),
         program_id: &plan.program.info.id,
+        program_yaml_blake3: &plan.key.program_yaml,
+        templates_blake3: &plan.key.templates,
         period_from: plan.period.from.to_string(),
         period_to: plan.period.to.to_string(),
         as_of: plan.as_of.to_string(),

@@ -280,6 +280,14 @@ fn repeated_runs_and_any_job_count_give_identical_outputs() {
         names.len() - 1,
         "every output but the manifest is listed"
     );
+    // The settings that made the outputs can be told from them: program.yaml's hash (targets,
+    // guidance and privacy settings are not in the module list) and the templates'.
+    let program_yaml = std::fs::read(t.dir.join("program.yaml")).unwrap();
+    assert_eq!(
+        manifest["program_yaml_blake3"].as_str(),
+        Some(blake3::hash(&program_yaml).to_hex().as_str())
+    );
+    assert_eq!(manifest["templates_blake3"].as_str(), Some("built-in"));
     let pdf = std::fs::read(Path::new(&a).join("participants/SG-001.pdf")).unwrap();
     let text = String::from_utf8_lossy(&pdf);
     // The PDF's date is the period end, not the clock.

@@ -114,6 +114,9 @@ pub(crate) const VERY_LOW_IMPLIED_INTAKE: f64 = 800.0;
 /// is not a model of starvation (program choice; BMI 16 is the WHO threshold of severe
 /// thinness).
 const MIN_STEADY_STATE_BMI: f64 = 16.0;
+/// BMI below which the forecast's path, or its steady state, raises `forecast_underweight`:
+/// the WHO cut-off for underweight (WHO 2000, Technical Report Series 894).
+const UNDERWEIGHT_BMI: f64 = 18.5;
 
 struct Settings {
     equation: RestingEquation,
@@ -676,6 +679,7 @@ pub(crate) fn run(
     }
     push_current(&mut out, &p, &cur, left_before.is_some());
     let fc = forecast(ctx, &s, &p, &cur, withdrew_cut);
+    push_underweight_flag(&mut out, &fc);
     push_forecast(&mut out, &p, &start, fc);
 
     // After a withdrawal there are no habits to estimate: the weekly table stops there.
@@ -1063,6 +1067,10 @@ struct Forecast {
     end: Option<Band>,
     /// Steady-state weight and its bounds (each withheld below `MIN_STEADY_STATE_BMI`).
     steady: Option<(f64, Option<f64>, Option<f64>)>,
+    /// For someone not underweight now: the first day the central path goes below BMI 18.5
+    /// within the horizon, and the steady state (kg) when it lies below it; computed before a
+    /// path or steady state below BMI 16 is withheld, so that the person heading there is named.
+    underweight: Option<(Option<NaiveDate>, Option<f64>)>,
 }
 
 /// Forecast to the program end (never shorter than `forecast_min_days`: in a program's last
@@ -1151,6 +1159,18 @@ fn forecast(
         }
     }
     let h_m = p.height_cm / 100.0;
+    let under_kg = UNDERWEIGHT_BMI * h_m * h_m;
+    let underweight = cur.implied.filter(|_| cur.bw >= under_kg).and_then(|i| {
+        let crosses = points
+            .iter()
+            .find(|pt| pt.value < under_kg)
+            .map(|pt| pt.date);
+        let rest = p
+            .model
+            .steady_state_weight(i.value, cur.met_h_window)
+            .filter(|w| *w < under_kg);
+        (crosses.is_some() || rest.is_some()).then_some((crosses, rest))
+    });
     // Like the steady state, a forecast that reaches a BMI below 16 (its path or the lower
     // edge of its band) is not shown: the model is not one of starvation, and a line drawn
     // into severe thinness is no forecast to give a participant.
@@ -1186,7 +1206,40 @@ fn forecast(
         points,
         end,
         steady,
+        underweight,
     }
+}
+
+/// The flag for a forecast that heads below BMI 18.5 ([`Forecast::underweight`]): clinical when
+/// the path crosses within the horizon, a notice when only the steady state lies below.
+fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
+    let Some((crosses, rest)) = fc.underweight else {
+        return;
+    };
+    let rest_words = |w: f64| format!("to settle at about {w:.0} kg");
+    let (severity, what) = match (crosses, rest) {
+        (Some(d), _) => (
+            FlagSeverity::Clinical,
+            format!(
+                "to fall below a BMI of 18.5 around {}",
+                d.format("%-d %B %Y")
+            ),
+        ),
+        (None, Some(w)) => (
+            FlagSeverity::Notice,
+            format!("{}, a BMI below 18.5", rest_words(w)),
+        ),
+        (None, None) => return,
+    };
+    out.push_flag(
+        EnergyFlag::ForecastUnderweight.as_str(),
+        severity,
+        format!(
+            "If eating goes on as over the last weeks, the model expects weight {what}, the \
+             underweight range (WHO). Losing more is not a goal at that weight; please review \
+             this with a licensed clinician."
+        ),
+    );
 }
 
 /// The forecast and body-composition outputs.

@@ -961,6 +961,53 @@ fn no_forecast_reaches_below_bmi_16() {
     assert!(end.value.unwrap() < 90.0 - 0.4 * n as f64 / 7.0);
 }
 
+/// A woman of healthy weight losing steadily: at the implied intake the forecast goes below BMI
+/// 18.5 before the program's end, or on into the range where it is withheld (BMI 16). Nothing
+/// said so: the forecast was drawn into underweight, or only left out.
+#[test]
+fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let run_with = |start: f64, per_week: f64| {
+        let weights: Vec<f64> = (0..n).map(|i| start - per_week * i as f64 / 7.0).collect();
+        let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, 0.3, 0.005, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    let flag = |out: &ModuleOutput| {
+        out.flags
+            .iter()
+            .find(|f| f.code == "forecast_underweight")
+            .map(|f| (f.severity, f.message.clone()))
+    };
+    // 60 kg (BMI 22.0) losing 0.5 kg a week: about 53.9 kg at the period's end, BMI 19.8; the
+    // forecast to 30 June passes BMI 18.5 (50.4 kg at 1.65 m).
+    let out = run_with(60.0, 0.5);
+    let end = out.scalar("forecast_weight_at_end_kg").unwrap();
+    assert!(end < 18.5 * 1.65 * 1.65, "{end}");
+    let (severity, message) = flag(&out).expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(message.contains("below a BMI of 18.5 around"), "{message}");
+    assert!(message.contains("licensed clinician"), "{message}");
+    // 60 kg losing 0.7 kg a week, 51.3 kg (BMI 18.8) at the period's end and heading below
+    // BMI 16: the forecast is withheld, and the flag still says where the weight is going.
+    let out = run_with(60.0, 0.7);
+    assert_eq!(out.scalar("forecast_weight_at_end_kg"), None);
+    assert_eq!(flag(&out).map(|f| f.0), Some(FlagSeverity::Clinical));
+    // The same loss from 90 kg (BMI 33) raises nothing, nor does a steady healthy weight.
+    assert_eq!(flag(&run_with(90.0, 0.5)), None);
+    assert_eq!(flag(&run_with(58.0, 0.0)), None);
+}
+
 /// In a first fortnight (no two-week block of logs and trend for the person's own share yet) the share missing from
 /// the logs came from the window's logs with its bounds swapped: lower above upper, and the
 /// module stopped on it (sample program, SG-006 in April 2026).
