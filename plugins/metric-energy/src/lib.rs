@@ -344,6 +344,12 @@ impl MetricModule for EnergyModule {
                 "Weight trend implies a very low intake, or an unexplained fast loss",
             ),
             OutputSpec::new(
+                "forecast_underweight",
+                "flag",
+                "",
+                "At the current intake, weight heads below a BMI of 18.5",
+            ),
+            OutputSpec::new(
                 "left_before_period",
                 "flag",
                 "",
