@@ -197,6 +197,35 @@ impl From<FolderProblem> for std::io::Error {
     }
 }
 
+/// Other ledger folders beside `dir` (named `*.ledger`, as [`default_dir`] names them) whose
+/// `ledger.json` records a release of `program`, sorted. A run that starts a new ledger while
+/// these hold the program's earlier group reports is not audited against them: `report.out`
+/// changed from one month to the next gives each month a ledger of its own. Nothing is locked
+/// or created; a folder that cannot be read is passed over.
+pub fn ledgers_beside(dir: &Path, program: &str) -> Vec<PathBuf> {
+    let (Some(parent), Some(own)) = (dir.parent(), dir.file_name()) else {
+        return Vec::new();
+    };
+    let Ok(entries) = std::fs::read_dir(parent) else {
+        return Vec::new();
+    };
+    let mut found: Vec<PathBuf> = entries
+        .flatten()
+        .filter(|e| e.file_name() != own)
+        .filter(|e| e.file_name().to_string_lossy().ends_with(".ledger"))
+        .filter(|e| e.file_type().is_ok_and(|t| t.is_dir()))
+        .map(|e| e.path())
+        .filter(|d| {
+            std::fs::read(d.join(LEDGER_FILE))
+                .ok()
+                .and_then(|b| parse_ledger_why(&b).ok())
+                .is_some_and(|f| f.releases.iter().any(|r| r.program == program))
+        })
+        .collect();
+    found.sort();
+    found
+}
+
 impl Ledger {
     /// Whether `dir` can hold the ledger, checked without creating or locking anything, so a
     /// run can be refused when it starts rather than after every participant was computed (a

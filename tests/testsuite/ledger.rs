@@ -461,6 +461,40 @@ fn a_key_that_does_not_belong_to_the_ledger_is_refused() {
 }
 
 #[test]
+fn a_new_ledger_while_another_beside_it_holds_the_programs_releases_is_warned_about() {
+    // `report.out` edited each month (`reports-2026-11`, `reports-2026-12`): each month got a
+    // ledger of its own beside its folder, and the second report was audited against nothing,
+    // without a word.
+    let t = ProgramTest::fixture("report-small");
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    assert!(
+        text.contains("\n  out: reports\n"),
+        "the fixture names its output folder"
+    );
+    let with_out = |out: &str| {
+        std::fs::write(
+            &yaml,
+            text.replace("\n  out: reports\n", &format!("\n  out: {out}\n")),
+        )
+        .unwrap();
+    };
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    with_out("reports-a");
+    let o = run(AS_OF);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
+    with_out("reports-b");
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr.contains("a new ledger, while") && o.stderr.contains("reports-a.ledger"),
+        "{}",
+        o.stderr
+    );
+}
+
+#[test]
 fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
     let t = ProgramTest::fixture("report-small");
     let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
