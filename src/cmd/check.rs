@@ -44,6 +44,9 @@ pub struct CheckOptions {
     /// `--state DIR`, as given to `run`: the group-report ledger folder to judge (default: the
     /// one a run without `--out` and `--state` uses).
     pub state: Option<PathBuf>,
+    /// `--out DIR`, as given to `run`: without `--state`, the ledger of a run into that folder
+    /// is the one judged.
+    pub out: Option<PathBuf>,
 }
 
 /// Examples shown per kind in the summary.
@@ -466,7 +469,7 @@ pub fn run_check_with(
             report.participants.clear();
             report.discovery.clear();
         } else {
-            match ledger_problems(prog, opts.state.as_deref()) {
+            match ledger_problems(prog, opts.state.as_deref(), opts.out.as_deref()) {
                 Ok(diags) => report.ledger = diags,
                 // `--state` refused as `run` refuses it: a wrong command line (exit 2).
                 Err(m) => {
@@ -498,19 +501,26 @@ pub fn run_check_with(
 }
 
 /// The group-report ledger folder a run of this program would use — found as `run` finds it
-/// ([`crate::group::ledger::resolve_dir`], with `--state` when given, else as a run without
-/// `--out`: `report.state_dir`, else the ledger of `report.out`) — judged as a run judges it
+/// ([`crate::group::ledger::resolve_dir`], with `--state` when given, else as a run with the
+/// same `--out`, or without one: `report.state_dir`, else the ledger of the output folder) —
+/// judged as a run judges it
 /// when it starts ([`crate::group::ledger::Ledger::folder_problem`]): a run stops on such a
 /// folder with exit code 6 before computing anything, after `check` had passed the program.
 /// `Err` (the message) when `--state` itself is refused (as `run` refuses it, a usage error).
 fn ledger_problems(
     prog: &crate::program::Program,
     state: Option<&Path>,
+    out: Option<&Path>,
 ) -> Result<Vec<Diagnostic>, String> {
-    if let Some(m) = crate::run::plan::tilde_message("--state", state) {
+    if let Some(m) = crate::run::plan::tilde_message("--state", state)
+        .or_else(|| crate::run::plan::tilde_message("--out", out))
+    {
         return Err(m);
     }
-    let out_dir = prog.root.join(&prog.def.report.out);
+    let out_dir = match out {
+        Some(o) => o.to_path_buf(),
+        None => prog.root.join(&prog.def.report.out),
+    };
     let dir = crate::group::ledger::resolve_dir(state, prog, &out_dir)?;
     Ok(match crate::group::ledger::Ledger::folder_problem(&dir) {
         Ok(()) => Vec::new(),

@@ -36,6 +36,11 @@ pub enum Command {
         /// (program.yaml's `report.state_dir`, else the ledger beside `report.out`).
         #[arg(long, value_name = "DIR")]
         state: Option<PathBuf>,
+        /// The output folder, as given to `run --out`: without `--state`, the ledger judged is
+        /// the one such a run uses (the program's own when it has one, else the ledger beside
+        /// this folder).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
     },
     /// Compute every metric and write the reports, tidy metrics and manifest.
     Run(RunArgs),

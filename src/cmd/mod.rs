@@ -21,6 +21,7 @@ pub fn dispatch(cli: Cli) -> i32 {
             format,
             verbose,
             state,
+            out,
         } => {
             init_logging(false, LogFormat::Text);
             let as_of = as_of.unwrap_or_else(today);
@@ -29,6 +30,7 @@ pub fn dispatch(cli: Cli) -> i32 {
                 json: format == CheckFormat::Json,
                 verbose,
                 state,
+                out,
             };
             check::run_check_with(&program, as_of, &opts, &mut stdout.lock())
         }

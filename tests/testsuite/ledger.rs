@@ -868,3 +868,44 @@ fn check_reports_a_ledger_folder_that_run_would_refuse() {
     assert_eq!(run(&["--state", "participants/x"]).code, 2);
     assert!(!t.dir.join("participants/x").exists());
 }
+
+#[test]
+fn check_with_out_judges_the_ledger_a_run_into_that_folder_uses() {
+    // A program without a ledger of its own, run into another folder: the run's ledger is the
+    // one beside that folder, which `check` (looking beside `report.out`) never saw.
+    let t = ProgramTest::fixture("report-small");
+    let elsewhere = t.dir.parent().unwrap().join("monthly");
+    let ledger = t.dir.parent().unwrap().join("monthly.ledger");
+    std::fs::create_dir(&ledger).unwrap();
+    std::fs::write(ledger.join("notes.txt"), "mine\n").unwrap();
+    let out = elsewhere.to_string_lossy().into_owned();
+    let check =
+        |extra: &[&str]| t.run(&[&["check", "{dir}", "--as-of", AS_OF][..], extra].concat());
+    assert!(
+        check(&[]).code < 2,
+        "without --out the folder is not the run's"
+    );
+    let c = check(&["--out", &out]);
+    assert_eq!(c.code, 6, "{c:?}");
+    assert!(
+        c.stdout.contains(&format!(
+            "error: {}: group-report ledger: ",
+            ledger.display()
+        )),
+        "{}",
+        c.stdout
+    );
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        &out,
+    ]);
+    assert_eq!(r.code, 6, "{r:?}");
+    // `~` is refused for `--out` as `run` refuses it.
+    assert_eq!(check(&["--out", "~/reports"]).code, 2);
+}
