@@ -301,7 +301,9 @@ fn tally(
                 } else {
                     "file not used: "
                 };
-                tracing::warn!(
+                // At ERROR: these are why the run ends with exit code 4 ("some inputs had
+                // errors"), and a log collector alerting on ERROR lines missed them at WARN.
+                tracing::error!(
                     "{}",
                     d.to_string()
                         .replacen("error: ", what, 1)

@@ -320,6 +320,39 @@ fn outputs_are_owner_only_unless_group_readable() {
 }
 
 #[test]
+fn an_input_error_that_leaves_a_participant_out_is_logged_at_error_level() {
+    // The sample leaves SG-049 out (no profile.yaml) and ends with exit code 4; its log line
+    // was at WARN, so a collector alerting on ERROR lines never saw why.
+    let t = ProgramTest::sample();
+    let r = run(
+        &t,
+        &out(&t, "r"),
+        &["--log-format", "json", "--formats", "html"],
+    );
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::PARTICIPANT_ERRORS,
+        "{}",
+        r.stderr
+    );
+    let left_out: Vec<serde_json::Value> = r
+        .stderr
+        .lines()
+        .map(|l| serde_json::from_str::<serde_json::Value>(l).unwrap())
+        .filter(|v| {
+            v["fields"]["message"]
+                .as_str()
+                .is_some_and(|m| m.starts_with("participant left out: "))
+        })
+        .collect();
+    assert!(!left_out.is_empty(), "{}", r.stderr);
+    assert!(
+        left_out.iter().all(|v| v["level"] == "ERROR"),
+        "{left_out:?}"
+    );
+}
+
+#[test]
 fn a_cron_style_run_logs_json_lines_and_no_progress_bar() {
     let t = ProgramTest::demo(4);
     // `ProgramTest::run` gives the binary no terminal and a closed standard input.
