@@ -5,7 +5,7 @@
 //! `cargo run -p cohortpress-validation --example plateau_diag -- SEED [MODE]`
 //! MODE: obs (default), tissue (true tissue mass, same days), tissue_noise (true tissue mass plus
 //! the same scale noise), bw (true body weight, same days), tissue_daily (true tissue every
-//! day), cond (per true onset: the onsets with the band at 0.20 and 0.30 %/wk, and whether the
+//! day), bw_daily (true body weight every day), cond (per true onset: the onsets with the band at 0.20 and 0.30 %/wk, and whether the
 //! estimate hit), defs (truth applied to body weight instead of tissue), pN (person N day by
 //! day; with the environment variable `DIAG_OBS` set to one of the record modes above, person N
 //! with those records). `-v` lists every scored person.
@@ -50,6 +50,19 @@ fn main() {
                     o.kg = p.bw[o.day];
                     o.source = "home-scale";
                 }
+            }
+            "bw_daily" => {
+                let last = p.obs.iter().map(|o| o.day).max().unwrap_or(0);
+                let proto = p.obs[0].clone();
+                p.obs = (0..=last)
+                    .map(|d| {
+                        let mut o = proto.clone();
+                        o.day = d;
+                        o.kg = p.bw[d];
+                        o.source = "home-scale";
+                        o
+                    })
+                    .collect();
             }
             "tissue_daily" => {
                 let last = p.obs.iter().map(|o| o.day).max().unwrap_or(0);
