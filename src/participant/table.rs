@@ -150,8 +150,8 @@ pub struct Table {
     headers: BTreeMap<&'static str, String>,
     /// Set when a number was read with a decimal comma.
     decimal_comma: Cell<bool>,
-    /// Set when a number was read with thousands separators.
-    thousands: Cell<bool>,
+    /// The first number read with thousands separators, as written, and its value.
+    thousands: RefCell<Option<(String, f64)>>,
     /// Set when a date carried a time of day.
     timestamps: Cell<bool>,
     /// Set when a UTC time was converted to the local time zone.
@@ -269,7 +269,7 @@ impl Table {
             renamed: Vec::new(),
             headers: BTreeMap::new(),
             decimal_comma: Cell::new(false),
-            thousands: Cell::new(false),
+            thousands: RefCell::default(),
             timestamps: Cell::new(false),
             utc_converted: Cell::new(false),
             dates_in_utc: false,
@@ -303,11 +303,11 @@ impl Table {
         if !how.is_empty() {
             parts.push(format!("read as {how}"));
         }
-        if self.thousands.get() {
-            parts.push(
-                "numbers with thousands separators read as whole thousands (`1.850` kcal = 1,850 kcal)"
-                    .to_string(),
-            );
+        // The file's own example (a fixed `1.850` was quoted to a file that wrote `1,191`).
+        if let Some((written, value)) = &*self.thousands.borrow() {
+            parts.push(format!(
+                "numbers with thousands separators read as whole thousands (`{written}` = {value})"
+            ));
         }
         if self.timestamps.get() {
             let mut s =
@@ -2344,7 +2344,10 @@ impl Cells<'_> {
         // Thousands separators, as formatted cells are exported (`1.850` kcal from a
         // German-locale spreadsheet was read as 1.85 kcal, without a word).
         if let Some(v) = parse_grouped(s, INTEGER_VALUED.contains(&col)) {
-            self.table.thousands.set(true);
+            self.table
+                .thousands
+                .borrow_mut()
+                .get_or_insert_with(|| (s.trim().to_string(), v));
             return Some(v);
         }
         match parse_decimal(s) {

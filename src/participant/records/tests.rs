@@ -1876,3 +1876,30 @@ fn the_order_of_numeric_dates_is_shown_on_the_files_own_date() {
         "numeric dates read month first (`4/15/2026` = 2026-04-15), the only order that reads every date of the file"
     );
 }
+
+#[test]
+fn the_thousands_note_quotes_a_number_the_file_holds() {
+    // A fixed `1.850` was quoted to a file that wrote `1,191` (comma-grouped, quoted).
+    let c = ctx("intake.csv");
+    let mut diags = Vec::new();
+    let i = parse_intake(
+        "date,kcal\n2026-04-01,\"1,191\"\n2026-04-02,\"1,850\"\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(
+        i.iter().map(|x| x.kcal).collect::<Vec<_>>(),
+        [1191.0, 1850.0]
+    );
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("read as whole thousands (`1,191` = 1191)")),
+        "{notes:?}"
+    );
+}
