@@ -194,7 +194,8 @@ fn stress(args: &Args) -> String {
     let _ = writeln!(
         s,
         "\nThe implied intake's interval in S{all}, by the person's true activity level (the prior \
-         is 1.6 ± 0.15):\n\n| true activity level | people | interval contains the truth |\n|---|---|---|"
+         is {}):\n\n| true activity level | people | interval contains the truth |\n|---|---|---|",
+        pal_prior()
     );
     for w in [1.2, 1.4, 1.6, 1.8, 2.0, 2.2].windows(2) {
         let hits: Vec<bool> = cohorts[all]
@@ -237,7 +238,7 @@ fn stress(args: &Args) -> String {
         s,
         "\nScenarios where an interval falls below 90 % (as printed, to one decimal): the implied intake's in {}; the total \
          expenditure's in {}. Both intervals rest on the priors for the activity level \
-         (1.6 ± 0.15), the resting energy (Mifflin–St Jeor ± 8 %) and the under-reporting \
+         ({}), the resting energy (Mifflin–St Jeor ± 8 %) and the under-reporting \
          share (20 ± 12 %), because the records cannot tell a person's requirement from their \
          under-reporting (\"What the records can identify\" above): when a cohort spreads \
          wider than those priors, the people far from their centres are missed, most of all \
@@ -250,8 +251,20 @@ fn stress(args: &Args) -> String {
          to what it knows of them.",
         below(|sm| sm.intake_coverage.value.unwrap_or(0.0)),
         below(|sm| sm.tdee_coverage.value.unwrap_or(0.0)),
+        pal_prior(),
     );
     s
+}
+
+/// The `energy` module's default prior on the activity level, as `1.6 ± 0.2`, read from the
+/// module's settings so the text cannot drift from the code.
+fn pal_prior() -> String {
+    use cohortpress_metric_api::MetricModule as _;
+    let s = cohortpress_metric_energy::EnergyModule
+        .spec()
+        .resolve_settings(&serde_json::Value::Null)
+        .expect("the defaults resolve");
+    format!("{} ± {}", s["base_pal"], s["pal_sd"])
 }
 
 fn identifiability(args: &Args, second_seed: u64) -> String {

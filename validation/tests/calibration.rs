@@ -44,14 +44,14 @@ fn check(seed: u64) {
         ("plateau cause decided wrongly", 0.10, false, s.cause_wrong),
         ("under-reporting MAE, points", 7.0, false, s.underreport_mae),
         ("expenditure MAE, kcal/d", 200.0, false, s.tdee_mae),
-        // Measured 94.1 % (seed 20261202) and 95.7 % (seed 7) with the baseline requirement's
+        // Measured 97.2 % (seed 20261202) and 97.3 % (seed 7) with the baseline requirement's
         // uncertainty in it.
         ("expenditure interval coverage", 0.90, true, s.tdee_coverage),
         ("trend weight MAE, kg", 0.4, false, s.trend_mae),
         ("trend weight bias, kg", 0.25, false, s.trend_bias),
         // Intake cuts are checked against the low end of the implied intake's 95 % interval, so
-        // about 2.5 % at most should take the true intake below the floor; measured 1.0 %
-        // (seed 20261202, n = 198) and 0.5 % (seed 7, n = 206); checked against the point
+        // about 2.5 % at most should take the true intake below the floor; measured 0.5 %
+        // (seed 20261202, n = 193) and 0.5 % (seed 7, n = 200); checked against the point
         // estimate instead, 7.1 % (n = 241) and 9.3 % (n = 247).
         (
             "intake cuts called safe below the floor",
@@ -96,8 +96,8 @@ fn a_second_cohort_keeps_its_calibration() {
 /// Scales that are noisier and more correlated than the simulator's (S1 in VALIDATION.md,
 /// "Stress runs") and heavier clinic clothing (S5): the trend estimates the scatter, its
 /// correlation and each source's offset from the person's own weigh-ins, so measurement that
-/// departs from the simulator's ranges must not break the intervals. Measured 92.8 % / 94.4 %
-/// (implied intake) and 92.5 % / 93.3 % (expenditure), forecasts 97.0 % / 96.6 %.
+/// departs from the simulator's ranges must not break the intervals. Measured 95.2 % / 97.6 %
+/// (implied intake) and 96.8 % / 96.8 % (expenditure), forecasts 96.9 % / 96.6 %.
 #[test]
 fn noisier_scales_and_heavier_clothing_keep_the_intervals() {
     use cohortpress_validation::run_cohort_in;
@@ -120,4 +120,31 @@ fn noisier_scales_and_heavier_clothing_keep_the_intervals() {
             assert!(x >= 0.90, "{}: {what} {x:.3} is below 0.90", sc.name);
         }
     }
+}
+
+/// Activity levels spread over 1.2–2.2, wider than the simulator's 1.35–1.95 (S2 in
+/// VALIDATION.md, "Stress runs"): the activity prior (1.6 ± 0.20) must keep the implied
+/// intake's interval at 90 % for a cohort unlike the one it was checked on. Measured 93.5 %;
+/// with the earlier prior SD of 0.15, 87.9 %. (Expenditure, 89.7 %, is not asserted: its
+/// interval also rests on the under-reporting prior, "What the records can identify".)
+#[test]
+fn a_cohort_more_spread_in_activity_keeps_the_intake_interval() {
+    use cohortpress_validation::run_cohort_in;
+    use cohortpress_validation::truth::Scenario;
+    let sc = Scenario::STRESS[1];
+    assert!(sc.pal == (1.2, 2.2), "{}", sc.name);
+    let s = Summary::of(&run_cohort_in(
+        20_261_202,
+        300,
+        180,
+        2,
+        cohortpress_validation::Oracle::None,
+        &sc,
+    ));
+    let x = s.intake_coverage.value.expect("people were scored");
+    assert!(
+        x >= 0.90,
+        "{}: implied-intake interval coverage {x:.3} is below 0.90",
+        sc.name
+    );
 }

@@ -60,7 +60,7 @@ impl MetricModule for EnergyModule {
                 1.0,
                 2.5,
                 "Prior centre of the physical activity level (TEE/RMR) before logged exercise \
-                 (SD 0.15; updated from the food logs); 1.6 is the middle of the 'low active' \
+                 (SD pal_sd; updated from the food logs); 1.6 is the middle of the 'low active' \
                  band of NASEM 2023 for adults (1.53–1.68; Dietary Reference Intakes for Energy, \
                  doi:10.17226/26818) and of free-living adults measured with doubly \
                  labelled water (Black et al. 1996, Eur J Clin Nutr 50:72; from memory)",
@@ -72,9 +72,9 @@ impl MetricModule for EnergyModule {
                 0.001,
                 0.5,
                 "SD of a person's activity level around base_pal before the food logs and the \
-                 weight trend update it (0.15: ±2 SD spans one FAO/WHO/UNU 2004 lifestyle \
-                 category either side; lower it only when activity was measured, e.g. by \
-                 accelerometry)",
+                 weight trend update it (0.20: ±2 SD spans 1.2–2.0, from the least active \
+                 free-living adults to the top of the FAO/WHO/UNU 2004 'active' lifestyle \
+                 category; lower it only when activity was measured, e.g. by accelerometry)",
             ),
             SettingSpec::number(
                 "underreporting_prior_percent",

@@ -137,7 +137,7 @@ fn implied_intake_interval_covers_the_true_intake() {
     // Simulated men (100 kg, 180 cm, 40 y) eat 500 kcal/d below their maintenance for 120
     // days; daily weights are the model's plus Gaussian noise with σ = 0.5 kg (0.5–1 kg
     // is typical, from memory). Each man's activity level and resting energy are drawn from what
-    // the module assumes about people it knows nothing of (PAL 1.6 ± 0.15, resting energy
+    // the module assumes about people it knows nothing of (its default PAL prior, resting energy
     // ± 8 % around Mifflin–St Jeor), so his baseline requirement is unknown to the module. With
     // no trend output the module fits a straight line to the last 28 days; its 95 % interval
     // must contain the true intake in about 95 % of participants.
@@ -162,12 +162,15 @@ fn implied_intake_interval_covers_the_true_intake() {
         settings: spec.resolve_settings(&serde_json::Value::Null).unwrap(),
         earlier: Default::default(),
     };
+    // The module's own default prior (`base_pal`, `pal_sd`).
+    let prior_pal = ctx.settings["base_pal"].as_f64().unwrap();
+    let prior_sd = ctx.settings["pal_sd"].as_f64().unwrap();
     let mut rng = SplitMix(20_270_104);
     let runs = 200;
     let mut covered = 0;
     let mut bias = 0.0;
     for _ in 0..runs {
-        let pal = 1.6 + 0.15 * rng.normal();
+        let pal = prior_pal + prior_sd * rng.normal();
         let mut m = model(Sex::Male, 100.0, 180.0, 40.0, pal);
         let rmr = m.rmr0 * (1.0 + 0.08 * rng.normal());
         m = HallModel::new(100.0, m.fm0, rmr, pal);
@@ -209,12 +212,15 @@ fn implied_intake_interval_covers_the_true_intake() {
         // Computed from ρ ≈ 10092 kcal/kg (Hall & Chow 2011 linearisation) and SE(slope) =
         // σ/√(N(N²−1)/12): the slope's share is ≈ ±231 kcal/d for σ = 0.5 kg and 28 daily
         // weights (t-based with an estimated σ here, so somewhat wider and variable); the
-        // unknown baseline requirement (12 % of about 2900 kcal/d) adds about ±700 in
-        // quadrature.
+        // unknown baseline requirement (relative SD √((pal_sd/PAL)² + 0.08²), 15 % at the
+        // defaults, of the prior requirement: Mifflin–St Jeor's 1930 kcal/d for this man × PAL,
+        // Mifflin et al. 1990, Am J Clin Nutr 51:241) adds about ±900 in quadrature.
+        let rel = ((prior_sd / prior_pal).powi(2) + 0.08_f64.powi(2)).sqrt();
+        let expected = (1.96 * rel * 1930.0 * prior_pal).hypot(231.0);
+        let half = (hi - lo) / 2.0;
         assert!(
-            (600.0..950.0).contains(&((hi - lo) / 2.0)),
-            "half-width {}",
-            (hi - lo) / 2.0
+            (0.83 * expected..1.32 * expected).contains(&half),
+            "half-width {half}, expected about {expected}"
         );
         bias += s.value.unwrap() - truth;
         if lo <= truth && truth <= hi {
