@@ -1326,15 +1326,19 @@ pub fn determined(suppressed: &[bool], relations: &[Relation]) -> Vec<bool> {
             continue;
         }
         rows.swap(r0, p);
+        // Every row from r0 on is zero (below EPS) in the columns before `col`: a pivot column
+        // was cleared, a skipped one had nothing to pivot on, and only such rows were
+        // subtracted from them since. So the pivot row is too, and the work starts at `col`
+        // (it halves the elimination, which the range audit runs thousands of times a report).
         let piv = rows[r0][col];
-        for v in rows[r0].iter_mut() {
+        for v in rows[r0][col..].iter_mut() {
             *v /= piv;
         }
-        let pivot_row = rows[r0].clone();
+        let pivot_row = rows[r0][col..].to_vec();
         for (i, row) in rows.iter_mut().enumerate() {
             if i != r0 && row[col].abs() >= EPS {
                 let f = row[col];
-                for (v, pv) in row.iter_mut().zip(&pivot_row) {
+                for (v, pv) in row[col..].iter_mut().zip(&pivot_row) {
                     *v -= f * pv;
                 }
             }
