@@ -35,10 +35,21 @@ const RUNNER: &str = r#"(function () {
     });
     document.body.appendChild(pre);
   }
-  // The page and every figure that scrolls sideways at this window width.
-  var overflow = [document.documentElement].concat(Array.from(document.querySelectorAll('figure')))
+  // The page, every figure and every table (and its scroll box) that scrolls sideways at this
+  // width, with the heading before it.
+  function heading(e) {
+    var h = Array.from(document.querySelectorAll('h1, h2, h3'))
+      .filter(function (h) { return h.compareDocumentPosition(e) & Node.DOCUMENT_POSITION_FOLLOWING; })
+      .pop();
+    return h ? ' after "' + h.textContent.slice(0, 60) + '"' : '';
+  }
+  var overflow = [document.documentElement]
+    .concat(Array.from(document.querySelectorAll('figure, .table-wrap, table')))
     .filter(function (e) { return e.scrollWidth > e.clientWidth + 1; })
-    .map(function (e) { return e.tagName.toLowerCase() + ' ' + e.scrollWidth + ' px in ' + e.clientWidth + ' px'; });
+    .map(function (e) {
+      return e.tagName.toLowerCase() + (e.className ? '.' + e.className.replace(/ /g, '.') : '') + ' '
+        + e.scrollWidth + ' px in ' + e.clientWidth + ' px' + heading(e);
+    });
   axe.run(document, { resultTypes: ['violations'] }).then(function (r) {
     done(JSON.stringify({ overflow: overflow, violations: r.violations.map(function (v) {
       return { id: v.id, impact: v.impact, help: v.help, nodes: v.nodes.map(function (n) {
@@ -117,12 +128,15 @@ fn tools() -> Option<Tools> {
 struct Check {
     /// axe's violations.
     violations: Vec<Violation>,
-    /// The page or figures that scroll sideways, as `tag N px in M px`.
+    /// The page, figures, tables or their scroll boxes (`.table-wrap`) that scroll sideways, as
+    /// `tag.class N px in M px after "heading"`.
     overflow: Vec<String>,
 }
 
-/// Window widths the pages are checked at: a desktop and a phone (390 CSS px).
-const WIDTHS: [u32; 2] = [1000, 390];
+/// Widths the pages are checked at: a desktop, a small tablet (where the wide tables are already
+/// stacked) and a phone (390 CSS px). The page is loaded into a frame of that width
+/// ([`dump_dom`]); its scroll bar takes 15 px of it, so a phone's 375 px are checked as well.
+const WIDTHS: [u32; 3] = [1000, 640, 390];
 
 /// Loads `html` in headless Chromium, `width` CSS px wide, with axe injected.
 fn axe_check(tools: &Tools, html: &str, width: u32) -> Check {
@@ -138,7 +152,7 @@ fn axe_check(tools: &Tools, html: &str, width: u32) -> Check {
     let page = format!("{}{inject}{}", &html[..at], &html[at..]);
     std::fs::write(dir.join("page.html"), page).expect("write page");
 
-    let dom = dump_dom(tools, dir, &dir.join("page.html"), width);
+    let dom = dump_dom(tools, dir, "page.html", width, "axe-result");
     let start = dom
         .find("<pre id=\"axe-result\">")
         .unwrap_or_else(|| panic!("axe wrote no result; the dumped page ends:\n{}", tail(&dom)))
@@ -189,9 +203,40 @@ fn tail(s: &str) -> &str {
     &s[cut..]
 }
 
-/// Runs headless Chromium on `page` and returns the serialised DOM after scripts ran. The
-/// browser gets a fresh profile in `dir`, no network services, and two minutes at most.
-fn dump_dom(tools: &Tools, dir: &Path, page: &Path, width: u32) -> String {
+/// Runs headless Chromium on `page` (a file in `dir`) shown `width` CSS px wide and returns the
+/// serialised DOM after scripts ran, with the `<pre id="{result}">` the page's own script wrote.
+/// The browser gets a fresh profile in `dir`, no network services, and two minutes at most.
+///
+/// Headless Chromium's window is never narrower than 500 px (Chromium 148: `--window-size=390,900`
+/// gives a page 500 px wide, so a "390 px" check looked at 500 px), so the page is loaded into an
+/// `<iframe>` exactly `width` px wide, which is the page's viewport, media queries included. The
+/// frame's result is copied into the top page (files share one origin with
+/// `--allow-file-access-from-files`), whose DOM Chromium prints.
+fn dump_dom(tools: &Tools, dir: &Path, page: &str, width: u32, result: &str) -> String {
+    assert!(
+        [page, result].iter().all(|s| s
+            .chars()
+            .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '.')),
+        "plain file name and id"
+    );
+    let frame = format!(
+        r#"<!DOCTYPE html><html lang="en"><head><title>frame</title>
+<style>body {{ margin: 0; }} iframe {{ display: block; border: 0; width: {width}px; height: 900px; }}</style>
+</head><body><iframe id="page" title="page" src="{page}"></iframe><script>
+(function poll() {{
+  var doc = null;
+  try {{ doc = document.getElementById('page').contentDocument; }} catch (e) {{}}
+  var found = doc && doc.getElementById('{result}');
+  if (!found) {{ setTimeout(poll, 50); return; }}
+  var pre = document.createElement('pre');
+  pre.id = '{result}';
+  pre.textContent = found.textContent;
+  document.body.appendChild(pre);
+}})();
+</script></body></html>
+"#
+    );
+    std::fs::write(dir.join("frame.html"), frame).expect("write frame");
     let out_path = dir.join("dom.html");
     let err_path = dir.join("chromium.log");
     let mut child = Command::new(&tools.chromium)
@@ -207,10 +252,12 @@ fn dump_dom(tools: &Tools, dir: &Path, page: &Path, width: u32) -> String {
             "--no-first-run",
             "--virtual-time-budget=10000",
             "--dump-dom",
+            // The frame's document is read from the top page (see above).
+            "--allow-file-access-from-files",
         ])
-        .arg(format!("--window-size={width},900"))
+        .arg(format!("--window-size={},900", width.max(500)))
         .arg(format!("--user-data-dir={}", dir.join("profile").display()))
-        .arg(format!("file://{}", page.display()))
+        .arg(format!("file://{}", dir.join("frame.html").display()))
         .stdin(Stdio::null())
         .stdout(std::fs::File::create(&out_path).expect("dom file"))
         .stderr(std::fs::File::create(&err_path).expect("log file"))
@@ -281,7 +328,7 @@ fn participant_reports_have_no_axe_violations() {
                 "{id}.html at {width} px:\n{}",
                 describe(&found.violations)
             );
-            // Charts reflow: nothing scrolls sideways, not even at phone width.
+            // Charts reflow and tables fit: nothing scrolls sideways, not even at phone width.
             assert!(
                 found.overflow.is_empty(),
                 "{id}.html at {width} px: {:?}",
@@ -291,7 +338,9 @@ fn participant_reports_have_no_axe_violations() {
     }
 }
 
-/// The group page: every rule passes at both widths.
+/// The group page: every rule passes at every width, and nothing scrolls sideways. The
+/// month-over-month table (five columns) scrolled 379 px in 351 px at 390 px; it is stacked, a
+/// block per month, below 721 px.
 #[test]
 fn group_report_has_no_axe_violations() {
     let Some(tools) = tools() else { return };
@@ -314,6 +363,57 @@ fn group_report_has_no_axe_violations() {
             check.overflow
         );
     }
+}
+
+/// The clinician follow-up list (seven columns, about 600 px wide as a table): no axe violation
+/// and nothing scrolling sideways at any width. As a table it scrolled 542 px in 351 px at
+/// 390 px and 603 px in 589 px at 640 px; below 721 px each flag is now a block of its own, each
+/// cell labelled with its column's heading, and the table stays a table (`th scope="col"` in a
+/// visually hidden header row).
+#[test]
+fn followup_list_has_no_axe_violations_and_no_table_scrolls_sideways() {
+    let Some(tools) = tools() else { return };
+    let t = crate::harness::ProgramTest::sample();
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Nurse\"\n"),
+    )
+    .unwrap();
+    let out = t.dir.parent().unwrap().join("out");
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-01",
+        "--formats",
+        "html",
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert_eq!(
+        r.code, 4,
+        "the sample's planted folder without a profile: {r:?}"
+    );
+    let html = std::fs::read_to_string(out.join("followup/followup.html")).unwrap();
+    // SG-010 is flagged in the sample's September, so the list is not empty.
+    assert!(html.contains(">SG-010</td>"), "{html}");
+    for width in WIDTHS {
+        let found = axe_check(&tools, &html, width);
+        assert!(
+            found.violations.is_empty(),
+            "followup.html at {width} px:\n{}",
+            describe(&found.violations)
+        );
+        assert!(
+            found.overflow.is_empty(),
+            "followup.html at {width} px: {:?}",
+            found.overflow
+        );
+    }
+    assert!(html.contains("<div class=\"table-wrap stack\">"));
+    assert!(html.contains("<td data-label=\"Participant\">SG-010</td><td data-label=\"Name\">"));
 }
 
 /// Needs no browser: a chart figure keeps its caption in the accessibility tree (no
@@ -415,7 +515,7 @@ fn widened_by(chromium: &Path, html: &str, long: &str, width: u32) -> (Vec<Strin
         chromium: chromium.to_path_buf(),
         axe: PathBuf::new(),
     };
-    let dom = dump_dom(&tools, dir, &dir.join("page.html"), width);
+    let dom = dump_dom(&tools, dir, "page.html", width, "sideways");
     let start = dom
         .find("<pre id=\"sideways\">")
         .unwrap_or_else(|| panic!("the script wrote nothing; the page ends:\n{}", tail(&dom)))

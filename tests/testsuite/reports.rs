@@ -1055,6 +1055,105 @@ fn overriding_one_template_leaves_the_others_built_in() {
     );
 }
 
+/// The table partial before tables could be stacked on narrow screens: no `stack` class, no
+/// `data-label`. A program's own copy of it (from `templates dump` of an earlier release) must
+/// keep working.
+const TABLE_PARTIAL_BEFORE_STACKING: &str = r#"<div class="table-wrap">
+<table>
+  <thead><tr>{{#each header}}{{#if this}}<th scope="col">{{this}}</th>{{else}}<td></td>{{/if}}{{/each}}</tr></thead>
+  <tbody>
+{{#each rows}}    <tr>{{#each this}}<td>{{this}}</td>{{/each}}</tr>
+{{/each}}  </tbody>
+</table>
+</div>
+"#;
+
+/// Templates written before the stacked tables keep rendering, as the tables they were: an own
+/// `partials/table.hbs` of the earlier shape under the built-in pages (which pass it
+/// `stack=true`), and own pages that include the table partial without `stack=true` under the
+/// built-in partial. Neither run fails (strict mode), and neither page gets the class `stack`
+/// or labels; the built-in style's narrow-screen rules select only `.stack`, so such a table
+/// keeps its table layout (and scrolls sideways on a phone, as before). The sample, since the
+/// small fixture has no clinical flag and so no follow-up table.
+#[test]
+fn templates_written_before_stacked_tables_still_render_as_tables() {
+    let builtin = |name: &str| BUILTIN.iter().find(|(n, _)| *n == name).unwrap().1;
+    let old_followup = builtin("followup.html.hbs").replace(" stack=true", "");
+    let old_group = builtin("group.html.hbs").replace(" stack=true", "");
+    assert_ne!(old_followup, builtin("followup.html.hbs"));
+    assert_ne!(old_group, builtin("group.html.hbs"));
+    let cases: [(&str, Vec<(&str, &str)>); 2] = [
+        (
+            "an own table partial",
+            vec![("partials/table.hbs", TABLE_PARTIAL_BEFORE_STACKING)],
+        ),
+        (
+            "own pages",
+            vec![
+                ("followup.html.hbs", old_followup.as_str()),
+                ("group.html.hbs", old_group.as_str()),
+            ],
+        ),
+    ];
+    for (what, files) in cases {
+        let prog = ProgramTest::sample();
+        let yaml = prog.dir.join("program.yaml");
+        let text = std::fs::read_to_string(&yaml).unwrap();
+        std::fs::write(
+            &yaml,
+            format!("{text}\nfollowup:\n  recipient: \"Nurse\"\n"),
+        )
+        .unwrap();
+        std::fs::create_dir_all(prog.dir.join("templates/partials")).unwrap();
+        for (name, text) in &files {
+            std::fs::write(prog.dir.join("templates").join(name), text).unwrap();
+        }
+        use_template_folder(&prog);
+        let out = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+        assert_eq!(out.code, 4, "{what}: {}", out.stderr);
+        for page in ["followup/followup.html", "group/program.html"] {
+            let html = std::fs::read_to_string(prog.dir.join("reports").join(page)).unwrap();
+            assert!(
+                html.contains("<div class=\"table-wrap\">\n<table>"),
+                "{what}: {page}"
+            );
+            assert!(!html.contains("table-wrap stack"), "{what}: {page}");
+            assert!(!html.contains("<td data-label="), "{what}: {page}");
+        }
+    }
+    // Every rule of the narrow-screen block selects inside `.stack` only.
+    let style = builtin("partials/style.hbs");
+    let start = style
+        .find("@media screen and (max-width: 720px) {")
+        .expect("the narrow-screen block");
+    let block = &style[start..];
+    let block = &block[block.find('{').unwrap() + 1..];
+    let mut depth = 0;
+    let mut selector = String::new();
+    let mut selectors = Vec::new();
+    for c in block.chars() {
+        match c {
+            '{' => {
+                depth += 1;
+                selectors.push(std::mem::take(&mut selector));
+            }
+            '}' if depth == 0 => break,
+            '}' => depth -= 1,
+            _ if depth == 0 => selector.push(c),
+            _ => {}
+        }
+    }
+    assert!(selectors.len() >= 5, "{selectors:?}");
+    for list in &selectors {
+        for one in list.split(',') {
+            assert!(
+                one.trim().starts_with(".stack ") || one.trim().starts_with(".table-wrap.stack"),
+                "a narrow-screen rule reaches beyond `.stack`: {one:?}"
+            );
+        }
+    }
+}
+
 #[test]
 fn partials_that_include_each_other_are_refused() {
     let dir = tempfile::tempdir().unwrap();
