@@ -495,6 +495,55 @@ fn a_new_ledger_while_another_beside_it_holds_the_programs_releases_is_warned_ab
 }
 
 #[test]
+fn a_ledger_json_beside_that_is_a_link_or_a_fifo_is_passed_over_not_followed_or_waited_on() {
+    // The other ledgers beside a new one were read with a plain `fs::read`: a `ledger.json`
+    // that is a FIFO (anyone who can make a folder beside the output) made every later run
+    // wait forever, and one that is a link was followed wherever it led (`/dev/zero`: memory
+    // without end). The ledger's own file is never read through a link, nor anything but a
+    // regular file; these are not either.
+    let t = ProgramTest::fixture("report-small");
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    let with_out = |out: &str| {
+        std::fs::write(
+            &yaml,
+            text.replace("\n  out: reports\n", &format!("\n  out: {out}\n")),
+        )
+        .unwrap();
+    };
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    with_out("reports-a");
+    assert_eq!(run(AS_OF).code, 0);
+    let linked = t.dir.join("linked.ledger");
+    std::fs::create_dir(&linked).unwrap();
+    std::os::unix::fs::symlink(
+        t.dir.join("reports-a.ledger/ledger.json"),
+        linked.join("ledger.json"),
+    )
+    .unwrap();
+    with_out("reports-b");
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(o.stderr.contains("reports-a.ledger"), "{}", o.stderr);
+    assert!(!o.stderr.contains("linked.ledger"), "{}", o.stderr);
+    let fifo = t.dir.join("fifo.ledger");
+    std::fs::create_dir(&fifo).unwrap();
+    let made = std::process::Command::new("mkfifo")
+        .arg(fifo.join("ledger.json"))
+        .status()
+        .unwrap();
+    assert!(made.success());
+    with_out("reports-c");
+    let o = run("2026-12-03");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr.contains("reports-a.ledger") && !o.stderr.contains("fifo.ledger"),
+        "{}",
+        o.stderr
+    );
+}
+
+#[test]
 fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
     let t = ProgramTest::fixture("report-small");
     let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
