@@ -480,6 +480,26 @@ pub fn read_table(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Table> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // Zero bytes at the end: what a save or a copy cut off by a crash or a power cut leaves
+    // (the file's length was kept, its last blocks never written). They were read as a row
+    // of one long field, "check for a quote that is never closed", and the rows that were
+    // lost went unmentioned.
+    let kept = text.trim_end_matches('\0');
+    if kept.len() < text.len() {
+        let zeros = text.len() - kept.len();
+        diags.push(
+            ctx.warning(format!(
+                "the file ends with {zeros} zero bytes, which are not read: what a save or a \
+                 copy stopped by a crash or a power cut leaves; rows after line {} may be missing",
+                line_at(kept.as_bytes(), kept.len()).saturating_sub(1).max(1)
+            ))
+            .at(line_at(kept.as_bytes(), kept.len()), None)
+            .expected("text up to the end of the file")
+            .found(format!("{zeros} zero bytes (0x00)"))
+            .hint("compare the file with the system or app it came from, and export it again if rows are missing"),
+        );
+    }
+    let text = kept;
     let (delimiter, sniffed) = match (sep_line(text), opts.delimiter) {
         (Some(d), _) | (None, Some(d)) => (d, false),
         (None, None) => (sniff_delimiter(text).unwrap_or(b','), true),
@@ -1599,6 +1619,16 @@ fn overlong_field(text: &str, delimiter: u8) -> Option<OverlongField<'_>> {
         i += 1;
     }
     None
+}
+
+/// The 1-based line on which byte `at` of `b` lies, lines ending with `\n`, `\r\n` or a lone
+/// `\r` as the reader ends records.
+fn line_at(b: &[u8], at: usize) -> u64 {
+    1 + b[..at]
+        .iter()
+        .enumerate()
+        .filter(|&(i, &c)| c == b'\n' || (c == b'\r' && b.get(i + 1) != Some(&b'\n')))
+        .count() as u64
 }
 
 /// The first `max` characters of `s`, with `…` when cut.
@@ -3893,6 +3923,44 @@ mod tests {
         };
         let (_, d) = read(&text, &opts_semi);
         assert_eq!((d[0].line, d[0].column), (Some(2), Some(4)), "{}", d[0]);
+    }
+
+    #[test]
+    fn zero_bytes_ending_a_file_are_named_as_what_a_crash_leaves_and_not_read() {
+        // A file saved or copied when the power went: its length kept, its last blocks zeros.
+        // The zeros were a row of one field ("a field of 5000 bytes … check for a quote that
+        // is never closed"), and nothing said rows might be missing.
+        let opts = CsvOptions::default();
+        let text = format!(
+            "date,weight,unit\r\n2026-04-01,72,kg\r\n2026-04-02,71.9,kg\r\n{}",
+            "\0".repeat(5000)
+        );
+        let (t, d) = read(&text, &opts);
+        assert_eq!(t.unwrap().rows.len(), 2);
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Warning);
+        assert_eq!(
+            d[0].message,
+            "the file ends with 5000 zero bytes, which are not read: what a save or a copy \
+             stopped by a crash or a power cut leaves; rows after line 3 may be missing"
+        );
+        assert_eq!((d[0].line, d[0].column), (Some(4), None));
+        // Cut inside a row: the row is read as what it is (here one field short).
+        let (t, d) = read(
+            "date,weight,unit\n2026-04-01,72,kg\n2026-04-02,71\0\0\0",
+            &opts,
+        );
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert_eq!(d[0].line, Some(3), "{d:?}");
+        assert!(d[0].message.contains("rows after line 2"), "{}", d[0]);
+        // Over the field limit too, the zeros are named, not read as one huge field.
+        let text = format!(
+            "date,weight,unit\n2026-04-01,72,kg\n{}",
+            "\0".repeat(MAX_CSV_FIELD_READ_BYTES + 1)
+        );
+        let (t, d) = read(&text, &opts);
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert_eq!(d.len(), 1, "{d:?}");
     }
 
     #[test]
