@@ -957,4 +957,38 @@ fn check_with_out_judges_the_ledger_a_run_into_that_folder_uses() {
     assert_eq!(r.code, 6, "{r:?}");
     // `~` is refused for `--out` as `run` refuses it.
     assert_eq!(check(&["--out", "~/reports"]).code, 2);
+    // The folder itself is judged as `run` judges it: `check --out` a program's participants/
+    // or a folder of someone else's said nothing (exit 0), where `run` refused with exit 2.
+    let mine = t.dir.parent().unwrap().join("documents");
+    std::fs::create_dir(&mine).unwrap();
+    std::fs::write(mine.join("letter.txt"), "mine\n").unwrap();
+    for dir in [
+        t.dir.join("participants").to_string_lossy().into_owned(),
+        mine.to_string_lossy().into_owned(),
+    ] {
+        let c = check(&["--out", &dir]);
+        let r = t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            &dir,
+        ]);
+        assert_eq!((c.code, r.code), (2, 2), "{c:?}\n{r:?}");
+        assert!(
+            c.stdout.contains(&format!(
+                "error: command line: refusing to write the output to {dir}"
+            )),
+            "{}",
+            c.stdout
+        );
+    }
+    // With --out, program.yaml's own report.out is not the run's folder and is not judged.
+    std::fs::create_dir_all(t.dir.join("reports")).unwrap();
+    std::fs::write(t.dir.join("reports/letter.txt"), "mine\n").unwrap();
+    assert_eq!(check(&[]).code, 3);
+    assert!(check(&["--out", &out]).code != 3);
 }
