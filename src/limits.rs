@@ -31,6 +31,11 @@ pub const MAX_CSV_ROWS: usize = 50_000;
 pub const MAX_CSV_COLUMNS: usize = 256;
 /// Longest CSV field, in bytes (a note or a label; longer rows are dropped with a warning).
 pub const MAX_CSV_FIELD_BYTES: usize = 4096;
+/// Longest CSV field read at all, in bytes (1 MiB, 256 times [`MAX_CSV_FIELD_BYTES`]): a file
+/// holding a longer one (a quote never closed, a file without line ends or delimiters) is
+/// refused at that field's line and column before it is parsed. The CSV reader gathers a field
+/// whole before it can be judged, and a 60 MB single-field file made `check` peak at 320 MB.
+pub const MAX_CSV_FIELD_READ_BYTES: usize = 1024 * 1024;
 /// Longest program, from `program.start` to `program.end`, in days (10 years with their leap
 /// days; common practice: weight-management programs and their maintenance follow-up run for
 /// months to a few years). Every report and figure has a row per week since enrolment, so a

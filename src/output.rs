@@ -804,15 +804,7 @@ impl Staging {
                 .lock()
                 .expect("no panics while holding the lock"),
         );
-        #[cfg(target_os = "linux")]
-        {
-            let dir = File::open(&self.dir).map_err(io(&self.dir))?;
-            rustix::fs::syncfs(&dir).map_err(|e| io(&self.dir)(e.into()))?;
-        }
-        for f in folders.iter().rev() {
-            sync_dir(f)?;
-        }
-        sync_dir(&self.dir)?;
+        sync_written(&self.dir, folders.iter().rev().map(PathBuf::as_path))?;
         let mut was_empty = false;
         if fs::symlink_metadata(&self.final_dir).is_ok() {
             fs::rename(&self.final_dir, &self.previous).map_err(io(&self.final_dir))?;
@@ -943,9 +935,29 @@ fn create_parents(parent: &Path) -> Result<(), StagingError> {
     fs::create_dir_all(parent).map_err(io(parent))
 }
 
-/// Makes a folder's entries durable (fsync of the folder itself).
-fn sync_dir(dir: &Path) -> Result<(), StagingError> {
+/// Makes a folder's entries durable (fsync of the folder itself): after a rename into it.
+pub fn sync_dir(dir: &Path) -> Result<(), StagingError> {
     File::open(dir).and_then(|f| f.sync_all()).map_err(io(dir))
+}
+
+/// Makes everything written under the staging folder `dir` durable before it is renamed into
+/// place: the file system holding it is synced (`syncfs`, Linux: every file's data, one call
+/// rather than one per file), then each of `folders` (its subfolders, deepest first) and `dir`
+/// itself. A run's commit does this to its staging folder, and `import` to its own, so that a
+/// power cut after the rename never leaves a name pointing at an empty or short file.
+pub fn sync_written<'a>(
+    dir: &Path,
+    folders: impl IntoIterator<Item = &'a Path>,
+) -> Result<(), StagingError> {
+    #[cfg(target_os = "linux")]
+    {
+        let d = File::open(dir).map_err(io(dir))?;
+        rustix::fs::syncfs(&d).map_err(|e| io(dir)(e.into()))?;
+    }
+    for f in folders {
+        sync_dir(f)?;
+    }
+    sync_dir(dir)
 }
 
 #[cfg(unix)]

@@ -448,16 +448,44 @@ pub fn run_check_with(
     out: &mut dyn Write,
 ) -> i32 {
     let mut report = check_program(root, as_of);
-    // `report.out` is checked as `run` would check it (a foreign folder, the program folder,
-    // participants/…), so the same program gives the same exit code from both.
+    // The output folder — `--out` when given, else `report.out` — is checked as `run` would
+    // check it (a foreign folder, the program folder, participants/…), so the same program
+    // and folder give the same exit code from both. `check --out DIR` judged only the ledger
+    // beside DIR: `check --out sample-program/participants` said nothing, and `run` with the
+    // same --out refused (exit 2).
     if let Ok(prog) = &report.program {
+        let (dir, named_by) = match opts.out.as_deref() {
+            Some(o) if crate::run::plan::tilde_message("--out", Some(o)).is_none() => {
+                (o.to_path_buf(), "--out")
+            }
+            _ => (prog.root.join(&prog.def.report.out), "report.out"),
+        };
         let target = crate::run::plan::output_target(
             prog,
-            prog.root.join(&prog.def.report.out),
+            dir,
             crate::output::OutputScope::Complete,
-            "report.out",
+            named_by,
         );
-        if let Err(crate::output::StagingError::Refused(m)) = target.check() {
+        let refused = match target.check() {
+            Err(crate::output::StagingError::Refused(m)) => Some(m),
+            _ => None,
+        };
+        if let Some(m) = refused.as_ref().filter(|_| named_by == "--out") {
+            // A wrong command line, as `run` takes it (exit 2).
+            let d = Diagnostic::error("command line", m.clone());
+            let written = if opts.json {
+                serde_json::to_writer(&mut *out, &d)
+                    .map_err(std::io::Error::from)
+                    .and_then(|()| writeln!(out))
+            } else {
+                writeln!(out, "{d}")
+            };
+            return match written {
+                Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => exit_code::OUTPUT_FAILED,
+                _ => exit_code::USAGE,
+            };
+        }
+        if let Some(m) = refused {
             report.program = Err(vec![Diagnostic::error("program.yaml", m)]);
             report.participants.clear();
             report.discovery.clear();

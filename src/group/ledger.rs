@@ -201,7 +201,8 @@ impl From<FolderProblem> for std::io::Error {
 /// `ledger.json` records a release of `program`, sorted. A run that starts a new ledger while
 /// these hold the program's earlier group reports is not audited against them: `report.out`
 /// changed from one month to the next gives each month a ledger of its own. Nothing is locked
-/// or created; a folder that cannot be read is passed over.
+/// or created; a folder that cannot be read, or whose `ledger.json` is a link or not a regular
+/// file, is passed over.
 pub fn ledgers_beside(dir: &Path, program: &str) -> Vec<PathBuf> {
     let (Some(parent), Some(own)) = (dir.parent(), dir.file_name()) else {
         return Vec::new();
@@ -216,7 +217,9 @@ pub fn ledgers_beside(dir: &Path, program: &str) -> Vec<PathBuf> {
         .filter(|e| e.file_type().is_ok_and(|t| t.is_dir()))
         .map(|e| e.path())
         .filter(|d| {
-            std::fs::read(d.join(LEDGER_FILE))
+            // As the ledger's own file is read: never through a link, regular files only (a
+            // FIFO named ledger.json beside the output made every run wait forever).
+            crate::limits::read_limited(&d.join(LEDGER_FILE), LEDGER_LIMIT)
                 .ok()
                 .and_then(|b| parse_ledger_why(&b).ok())
                 .is_some_and(|f| f.releases.iter().any(|r| r.program == program))

@@ -667,26 +667,42 @@ pub fn import(
     if staging.exists() {
         std::fs::remove_dir_all(&staging).map_err(io)?;
     }
-    let write = || -> std::io::Result<()> {
-        std::fs::create_dir_all(&staging)?;
-        std::fs::create_dir_all(&base)?;
+    let write = || -> Result<(), String> {
+        let e = |e: std::io::Error| e.to_string();
+        let synced = |r: Result<(), crate::output::StagingError>| r.map_err(|e| e.to_string());
+        std::fs::create_dir_all(&staging).map_err(e)?;
+        std::fs::create_dir_all(&base).map_err(e)?;
+        let mut folders = Vec::new();
         for (pid, data) in &plan {
             let d = staging.join(pid);
-            std::fs::create_dir(&d)?;
+            std::fs::create_dir(&d).map_err(e)?;
             for (name, text) in participant_files(pid, data) {
-                std::fs::write(d.join(name), text)?;
+                std::fs::write(d.join(name), text).map_err(e)?;
             }
+            folders.push(d);
         }
+        // On disk before anything is moved into place, as a run's output is
+        // (crate::output::sync_written): a power cut after the renames left participant
+        // folders whose files were empty or cut short, under the names `run` reads.
+        synced(crate::output::sync_written(
+            &staging,
+            folders.iter().map(PathBuf::as_path),
+        ))?;
         for (pid, _) in &plan {
-            std::fs::rename(staging.join(pid), base.join(pid))?;
+            std::fs::rename(staging.join(pid), base.join(pid)).map_err(e)?;
         }
-        Ok(())
+        // The new names themselves (and `participants` when the import made it).
+        synced(crate::output::sync_dir(&base))?;
+        synced(crate::output::sync_dir(out))
     };
     // A failed import leaves no staging behind: what was not moved into place is removed (the
     // folders already moved are whole, and the message says the import failed).
     if let Err(e) = write() {
         let _ = std::fs::remove_dir_all(&staging);
-        return Err(io(e));
+        return Err((
+            ImportFailure::Write,
+            format!("cannot write the import ({e})"),
+        ));
     }
     std::fs::remove_dir_all(&staging).map_err(io)?;
     let mut s = format!(

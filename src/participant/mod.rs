@@ -555,6 +555,16 @@ fn read_input(
         }
         None => {}
     }
+    // UTF-8 text is the file's own bytes, not a copy of them (a file may be 64 MiB).
+    let bytes = match String::from_utf8(bytes) {
+        Ok(mut text) => {
+            if text.starts_with('\u{feff}') {
+                text.drain(..'\u{feff}'.len_utf8());
+            }
+            return Some(Ok(text));
+        }
+        Err(e) => e.into_bytes(),
+    };
     match decode_utf8(&bytes, &ctx.file) {
         Ok(t) => Some(Ok(t.to_string())),
         Err(d) => match encoding::decode_legacy(&bytes) {

@@ -11,7 +11,7 @@
 
 use super::quantity::{NumberError, parse_decimal, parse_grouped};
 use crate::diag::Diagnostic;
-use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_ROWS};
+use crate::limits::{MAX_CSV_COLUMNS, MAX_CSV_FIELD_BYTES, MAX_CSV_FIELD_READ_BYTES, MAX_CSV_ROWS};
 pub use crate::program::files::{FileSpec, LocalZone};
 use chrono::{DateTime, Datelike, FixedOffset, NaiveDate, NaiveDateTime, NaiveTime, Offset};
 use std::cell::{Cell, RefCell};
@@ -480,10 +480,61 @@ pub fn read_table(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Table> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // Zero bytes at the end: what a save or a copy cut off by a crash or a power cut leaves
+    // (the file's length was kept, its last blocks never written). They were read as a row
+    // of one long field, "check for a quote that is never closed", and the rows that were
+    // lost went unmentioned.
+    let kept = text.trim_end_matches('\0');
+    if kept.len() < text.len() {
+        let zeros = text.len() - kept.len();
+        diags.push(
+            ctx.warning(format!(
+                "the file ends with {zeros} zero bytes, which are not read: what a save or a \
+                 copy stopped by a crash or a power cut leaves; rows after line {} may be missing",
+                line_at(kept.as_bytes(), kept.len()).saturating_sub(1).max(1)
+            ))
+            .at(line_at(kept.as_bytes(), kept.len()), None)
+            .expected("text up to the end of the file")
+            .found(format!("{zeros} zero bytes (0x00)"))
+            .hint("compare the file with the system or app it came from, and export it again if rows are missing"),
+        );
+    }
+    let text = kept;
     let (delimiter, sniffed) = match (sep_line(text), opts.delimiter) {
         (Some(d), _) | (None, Some(d)) => (d, false),
         (None, None) => (sniff_delimiter(text).unwrap_or(b','), true),
     };
+    // Before the reader sees it: the reader gathers a field whole (and a copy of the text)
+    // before anything can judge it, so a field of megabytes cost several times its size.
+    if let Some(f) = overlong_field(text, delimiter) {
+        let hint = if f.quoted {
+            "a quote (`\"`) opened at the start of this field is never closed (or closed far \
+             below): every line after it was read into this one field; close the quote, or \
+             remove it"
+        } else {
+            "check it is the right file, saved with line ends, and with its fields separated \
+             by commas, semicolons or tabs"
+        };
+        diags.push(
+            ctx.error(format!(
+                "a field of {} bytes starts here, longer than the limit of {} for one field; \
+                 the file cannot be used",
+                f.bytes,
+                crate::limits::human(MAX_CSV_FIELD_READ_BYTES as u64)
+            ))
+            .at(f.line, Some(f.column))
+            .expected(format!(
+                "fields of at most {MAX_CSV_FIELD_BYTES} bytes (a date, a number, a unit or a \
+                 short note)"
+            ))
+            .found(format!(
+                "`{}…`",
+                f.start.replace('\n', "\\n").replace('\r', "\\r")
+            ))
+            .hint(hint),
+        );
+        return None;
+    }
     with_reader(delimiter, text, |reader| {
         let file = FileRead {
             text,
@@ -759,9 +810,17 @@ fn with_reader<T>(delimiter: u8, text: &str, f: impl FnOnce(&mut BufferReader) -
             .from_reader(std::io::Cursor::new(text.as_bytes().to_vec()));
     }
     let out = f(&mut reader);
-    READER.with(|r| *r.borrow_mut() = Some((delimiter, reader)));
+    // A reader that held a large file is not kept: its copy of the text would stay with the
+    // thread for the rest of the run (up to the 64 MiB file limit per worker).
+    if reader.get_ref().get_ref().capacity() <= KEPT_READER_BYTES {
+        READER.with(|r| *r.borrow_mut() = Some((delimiter, reader)));
+    }
     out
 }
+
+/// Largest copy of a file the per-thread reader keeps between files (1 MiB: the files of
+/// nearly every participant are far smaller, and reuse is what saves the time).
+const KEPT_READER_BYTES: usize = 1024 * 1024;
 
 /// One file being read: its text, what it should hold, how it is read and where problems go.
 struct FileRead<'a> {
@@ -1481,6 +1540,95 @@ fn sep_line(text: &str) -> Option<u8> {
         [d] if d.is_ascii_punctuation() && !matches!(d, b'"' | b'\'') => Some(*d),
         _ => None,
     }
+}
+
+/// A field longer than [`MAX_CSV_FIELD_READ_BYTES`]: where it starts (line and column, 1-based,
+/// lines ending as the reader ends them), its length in bytes as written (its quotes included)
+/// and its first bytes.
+struct OverlongField<'a> {
+    line: u64,
+    column: u64,
+    bytes: usize,
+    quoted: bool,
+    start: &'a str,
+}
+
+/// The first field of `text` longer than [`MAX_CSV_FIELD_READ_BYTES`], found in one pass over
+/// the bytes without copying anything, as the CSV reader splits them (csv-core 0.1, RFC 4180
+/// with its usual extensions): a field that starts with `"` is quoted until a `"` that is not
+/// doubled, and whatever follows that up to the delimiter belongs to it too; a `"` elsewhere is
+/// a character; records end at `\n`, `\r\n` or a lone `\r`, except inside quotes.
+fn overlong_field(text: &str, delimiter: u8) -> Option<OverlongField<'_>> {
+    let b = text.as_bytes();
+    // Nothing to find in a file shorter than the limit (nearly every file).
+    if b.len() <= MAX_CSV_FIELD_READ_BYTES {
+        return None;
+    }
+    let (mut line, mut column) = (1u64, 1u64);
+    let mut i = 0;
+    while i < b.len() {
+        let (start, start_line) = (i, line);
+        let quoted = b[i] == b'"';
+        if quoted {
+            i += 1;
+            loop {
+                match b.get(i) {
+                    None => break,
+                    Some(b'"') if b.get(i + 1) == Some(&b'"') => i += 2,
+                    Some(b'"') => {
+                        i += 1;
+                        break;
+                    }
+                    Some(b'\r') if b.get(i + 1) == Some(&b'\n') => {
+                        line += 1;
+                        i += 2;
+                    }
+                    Some(b'\n' | b'\r') => {
+                        line += 1;
+                        i += 1;
+                    }
+                    Some(_) => i += 1,
+                }
+            }
+        }
+        while i < b.len() && !matches!(b[i], b'\n' | b'\r') && b[i] != delimiter {
+            i += 1;
+        }
+        if i - start > MAX_CSV_FIELD_READ_BYTES {
+            let mut head = start + 40.min(i - start);
+            while !text.is_char_boundary(head) {
+                head += 1;
+            }
+            return Some(OverlongField {
+                line: start_line,
+                column,
+                bytes: i - start,
+                quoted,
+                start: &text[start..head],
+            });
+        }
+        match b.get(i) {
+            Some(&d) if d == delimiter => column += 1,
+            Some(b'\r') if b.get(i + 1) == Some(&b'\n') => {
+                (line, column) = (line + 1, 1);
+                i += 1;
+            }
+            Some(_) => (line, column) = (line + 1, 1),
+            None => {}
+        }
+        i += 1;
+    }
+    None
+}
+
+/// The 1-based line on which byte `at` of `b` lies, lines ending with `\n`, `\r\n` or a lone
+/// `\r` as the reader ends records.
+fn line_at(b: &[u8], at: usize) -> u64 {
+    1 + b[..at]
+        .iter()
+        .enumerate()
+        .filter(|&(i, &c)| c == b'\n' || (c == b'\r' && b.get(i + 1) != Some(&b'\n')))
+        .count() as u64
 }
 
 /// The first `max` characters of `s`, with `…` when cut.
@@ -3703,6 +3851,135 @@ mod tests {
             found.chars().count(),
             1000 + "… (5,201 more characters)".chars().count()
         );
+    }
+
+    #[test]
+    fn a_field_over_the_read_limit_refuses_the_file_at_its_line_and_column_before_reading() {
+        // A quote never closed on the third line, after a note with a quoted line end and a
+        // CRLF line: every line after it is one field of over 1 MiB. It was read whole by the
+        // CSV reader (a 60 MB field made `check` peak at 320 MB) and cost only its row.
+        let opts = CsvOptions::default();
+        let mut text = String::from(
+            "date,weight,unit,source\r\n2026-04-01,72,kg,\"home\nscale\"\n2026-04-02,71,kg,\"ok",
+        );
+        let row = "\n2026-04-03,71,kg,scale";
+        while text.len() <= MAX_CSV_FIELD_READ_BYTES + 100 {
+            text.push_str(row);
+        }
+        let (t, d) = read(&text, &opts);
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(4), Some(4)), "{}", d[0]);
+        let field = text.len() - text.find(",\"ok").unwrap() - 1;
+        assert_eq!(
+            d[0].message,
+            format!(
+                "a field of {field} bytes starts here, longer than the limit of 1 MiB for one \
+                 field; the file cannot be used"
+            )
+        );
+        assert_eq!(
+            d[0].found.as_deref(),
+            Some("`\"ok\\n2026-04-03,71,kg,scale\\n2026-04-03,71…`")
+        );
+        assert!(
+            d[0].hint.as_deref().unwrap().contains("never closed"),
+            "{}",
+            d[0]
+        );
+
+        // A file without line ends or delimiters: one field from the first byte.
+        let (t, d) = read(&"x".repeat(MAX_CSV_FIELD_READ_BYTES + 1), &opts);
+        assert!(t.is_none());
+        assert_eq!((d[0].line, d[0].column), (Some(1), Some(1)));
+        assert!(
+            d[0].hint.as_deref().unwrap().contains("line ends"),
+            "{}",
+            d[0]
+        );
+
+        // A closed quote with doubled quotes and delimiters inside is one field; at the limit
+        // it is read (and its row dropped, as any field over 4 KiB), one byte over it is not.
+        let body = |n: usize| {
+            // `n` bytes as written, its two quotes included.
+            let inner = format!("a\"\",b;{}", "c".repeat(n - 8));
+            format!(
+                "date,weight,unit,source\n2026-04-01,72,kg,\"{inner}\"\n2026-04-02,71,kg,scale\n"
+            )
+        };
+        let (t, d) = read(&body(MAX_CSV_FIELD_READ_BYTES), &opts);
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert!(d[0].message.contains("the row is dropped"), "{}", d[0]);
+        let (t, d) = read(&body(MAX_CSV_FIELD_READ_BYTES + 1), &opts);
+        assert!(t.is_none());
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(4)), "{}", d[0]);
+
+        // Semicolons: the column counts them, not the commas in the field before.
+        let text = format!(
+            "date;kcal;note\n2026-04-01;1800;\"1,5\";{}\n",
+            "y".repeat(MAX_CSV_FIELD_READ_BYTES + 1)
+        );
+        let opts_semi = CsvOptions {
+            delimiter: Some(b';'),
+            ..CsvOptions::default()
+        };
+        let (_, d) = read(&text, &opts_semi);
+        assert_eq!((d[0].line, d[0].column), (Some(2), Some(4)), "{}", d[0]);
+    }
+
+    #[test]
+    fn zero_bytes_ending_a_file_are_named_as_what_a_crash_leaves_and_not_read() {
+        // A file saved or copied when the power went: its length kept, its last blocks zeros.
+        // The zeros were a row of one field ("a field of 5000 bytes … check for a quote that
+        // is never closed"), and nothing said rows might be missing.
+        let opts = CsvOptions::default();
+        let text = format!(
+            "date,weight,unit\r\n2026-04-01,72,kg\r\n2026-04-02,71.9,kg\r\n{}",
+            "\0".repeat(5000)
+        );
+        let (t, d) = read(&text, &opts);
+        assert_eq!(t.unwrap().rows.len(), 2);
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Warning);
+        assert_eq!(
+            d[0].message,
+            "the file ends with 5000 zero bytes, which are not read: what a save or a copy \
+             stopped by a crash or a power cut leaves; rows after line 3 may be missing"
+        );
+        assert_eq!((d[0].line, d[0].column), (Some(4), None));
+        // Cut inside a row: the row is read as what it is (here one field short).
+        let (t, d) = read(
+            "date,weight,unit\n2026-04-01,72,kg\n2026-04-02,71\0\0\0",
+            &opts,
+        );
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert_eq!(d[0].line, Some(3), "{d:?}");
+        assert!(d[0].message.contains("rows after line 2"), "{}", d[0]);
+        // Over the field limit too, the zeros are named, not read as one huge field.
+        let text = format!(
+            "date,weight,unit\n2026-04-01,72,kg\n{}",
+            "\0".repeat(MAX_CSV_FIELD_READ_BYTES + 1)
+        );
+        let (t, d) = read(&text, &opts);
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert_eq!(d.len(), 1, "{d:?}");
+    }
+
+    #[test]
+    fn the_reader_does_not_keep_a_large_file_for_the_thread() {
+        let mut long = String::from("date,weight,unit\n");
+        while long.len() <= 2 * KEPT_READER_BYTES {
+            long.push_str("2026-04-01,72,kg\n");
+        }
+        let rows = with_reader(b',', &long, |r| r.records().count());
+        assert!(rows > 100_000);
+        let kept = READER.with(|r| {
+            r.borrow()
+                .as_ref()
+                .map_or(0, |(_, r)| r.get_ref().get_ref().capacity())
+        });
+        assert!(kept <= KEPT_READER_BYTES, "{kept}");
     }
 
     #[test]

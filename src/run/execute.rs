@@ -56,9 +56,26 @@ pub fn select_participants(
             .map(String::as_str)
             .collect();
         if !unknown.is_empty() {
+            // `--only SG-001,SG-002` names one folder called so; say how to name several.
+            let listed = unknown
+                .iter()
+                .find(|u| {
+                    u.contains(',') && u.split(',').all(|p| dirs.iter().any(|d| d.id == p.trim()))
+                })
+                .map(|u| {
+                    let each: Vec<String> = u
+                        .split(',')
+                        .map(|p| format!("--only {}", p.trim()))
+                        .collect();
+                    format!(
+                        " (to name several participants, give each its own --only: `{}`)",
+                        each.join(" ")
+                    )
+                })
+                .unwrap_or_default();
             return Err(RunError::Refused {
                 message: format!(
-                    "--only: no participant folder named {} in {}; nothing was written",
+                    "--only: no participant folder named {} in {}; nothing was written{listed}",
                     unknown.join(", "),
                     plan.program
                         .root

@@ -495,6 +495,55 @@ fn a_new_ledger_while_another_beside_it_holds_the_programs_releases_is_warned_ab
 }
 
 #[test]
+fn a_ledger_json_beside_that_is_a_link_or_a_fifo_is_passed_over_not_followed_or_waited_on() {
+    // The other ledgers beside a new one were read with a plain `fs::read`: a `ledger.json`
+    // that is a FIFO (anyone who can make a folder beside the output) made every later run
+    // wait forever, and one that is a link was followed wherever it led (`/dev/zero`: memory
+    // without end). The ledger's own file is never read through a link, nor anything but a
+    // regular file; these are not either.
+    let t = ProgramTest::fixture("report-small");
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    let with_out = |out: &str| {
+        std::fs::write(
+            &yaml,
+            text.replace("\n  out: reports\n", &format!("\n  out: {out}\n")),
+        )
+        .unwrap();
+    };
+    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+    with_out("reports-a");
+    assert_eq!(run(AS_OF).code, 0);
+    let linked = t.dir.join("linked.ledger");
+    std::fs::create_dir(&linked).unwrap();
+    std::os::unix::fs::symlink(
+        t.dir.join("reports-a.ledger/ledger.json"),
+        linked.join("ledger.json"),
+    )
+    .unwrap();
+    with_out("reports-b");
+    let o = run("2026-12-02");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(o.stderr.contains("reports-a.ledger"), "{}", o.stderr);
+    assert!(!o.stderr.contains("linked.ledger"), "{}", o.stderr);
+    let fifo = t.dir.join("fifo.ledger");
+    std::fs::create_dir(&fifo).unwrap();
+    let made = std::process::Command::new("mkfifo")
+        .arg(fifo.join("ledger.json"))
+        .status()
+        .unwrap();
+    assert!(made.success());
+    with_out("reports-c");
+    let o = run("2026-12-03");
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr.contains("reports-a.ledger") && !o.stderr.contains("fifo.ledger"),
+        "{}",
+        o.stderr
+    );
+}
+
+#[test]
 fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
     let t = ProgramTest::fixture("report-small");
     let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
@@ -908,4 +957,38 @@ fn check_with_out_judges_the_ledger_a_run_into_that_folder_uses() {
     assert_eq!(r.code, 6, "{r:?}");
     // `~` is refused for `--out` as `run` refuses it.
     assert_eq!(check(&["--out", "~/reports"]).code, 2);
+    // The folder itself is judged as `run` judges it: `check --out` a program's participants/
+    // or a folder of someone else's said nothing (exit 0), where `run` refused with exit 2.
+    let mine = t.dir.parent().unwrap().join("documents");
+    std::fs::create_dir(&mine).unwrap();
+    std::fs::write(mine.join("letter.txt"), "mine\n").unwrap();
+    for dir in [
+        t.dir.join("participants").to_string_lossy().into_owned(),
+        mine.to_string_lossy().into_owned(),
+    ] {
+        let c = check(&["--out", &dir]);
+        let r = t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            &dir,
+        ]);
+        assert_eq!((c.code, r.code), (2, 2), "{c:?}\n{r:?}");
+        assert!(
+            c.stdout.contains(&format!(
+                "error: command line: refusing to write the output to {dir}"
+            )),
+            "{}",
+            c.stdout
+        );
+    }
+    // With --out, program.yaml's own report.out is not the run's folder and is not judged.
+    std::fs::create_dir_all(t.dir.join("reports")).unwrap();
+    std::fs::write(t.dir.join("reports/letter.txt"), "mine\n").unwrap();
+    assert_eq!(check(&[]).code, 3);
+    assert!(check(&["--out", &out]).code != 3);
 }

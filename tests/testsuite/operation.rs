@@ -748,3 +748,30 @@ fn a_participant_enrolled_after_the_period_is_not_reported_for_it() {
     assert!(!o.stderr.contains("after this period"), "{o:?}");
     assert!(out.join("participants/SG-018.html").exists());
 }
+
+/// `--only SG-001,SG-002` (a list, as other tools take it) names one folder of that name: the
+/// refusal said only that there was none; it now says how to name several.
+#[test]
+fn only_with_a_comma_list_says_to_repeat_the_option() {
+    let t = ProgramTest::fixture("report-small");
+    let ids: Vec<String> = std::fs::read_dir(t.dir.join("participants"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .take(2)
+        .collect();
+    let o = out(&t, "reports");
+    let r = run(&t, &o, &["--only", &ids.join(",")]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr.contains(&format!(
+            "(to name several participants, give each its own --only: `--only {} --only {}`)",
+            ids[0], ids[1]
+        )),
+        "{}",
+        r.stderr
+    );
+    // An id that is simply not there gets no such advice.
+    let r = run(&t, &o, &["--only", "NOPE-1,NOPE-2"]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(!r.stderr.contains("give each its own"), "{}", r.stderr);
+}
