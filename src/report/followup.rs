@@ -80,7 +80,7 @@ pub fn reason(code: &str) -> &'static str {
             "Weight coming down as fast as only a very low intake would make it, or faster than eating nothing explains (a very low intake, or a step in the weigh-ins?)"
         }
         "forecast_underweight" => {
-            "At the intake the weight trend implies, weight would fall into the underweight range before the forecast's end"
+            "At the intake the weight trend implies, weight would fall into the underweight range, or further within it, before the forecast's end"
         }
         "low_intake" => "Logged intake below the usual floor for eating less without supervision",
         "low_bmi" => {

@@ -119,6 +119,13 @@ pub(crate) const VERY_LOW_IMPLIED_INTAKE: f64 = 800.0;
 /// is not a model of starvation (program choice; BMI 16 is the WHO threshold of severe
 /// thinness).
 const MIN_STEADY_STATE_BMI: f64 = 16.0;
+/// Fall of the forecast's central path, kg, below the current weight of someone already
+/// underweight that raises `forecast_underweight`: a fall beyond a kilogram is more than a
+/// forecast's day-to-day wobble (program choice). Without it, a program that set the outcomes
+/// module's `underweight_bmi_below` lower (17, say) had no flag at all for a person at BMI 18
+/// whose forecast went on down to 16.
+const FALLS_FURTHER_KG: f64 = 1.0;
+
 /// BMI below which the forecast's path, or its steady state, raises `forecast_underweight`:
 /// the WHO cut-off for underweight (WHO 2000, Technical Report Series 894).
 const UNDERWEIGHT_BMI: f64 = 18.5;
@@ -1076,6 +1083,10 @@ struct Forecast {
     /// within the horizon, and the steady state (kg) when it lies below it; computed before a
     /// path or steady state below BMI 16 is withheld, so that the person heading there is named.
     underweight: Option<(Option<NaiveDate>, Option<f64>)>,
+    /// For someone underweight now: the day the central path is lowest and its weight, when it
+    /// lies at least [`FALLS_FURTHER_KG`] below the current weight (also computed before a path
+    /// below BMI 16 is withheld).
+    falls_further: Option<(NaiveDate, f64)>,
 }
 
 /// Forecast to the program end (never shorter than `forecast_min_days`: in a program's last
@@ -1176,6 +1187,12 @@ fn forecast(
             .filter(|w| *w < under_kg);
         (crosses.is_some() || rest.is_some()).then_some((crosses, rest))
     });
+    let falls_further = cur
+        .implied
+        .filter(|_| cur.bw < under_kg)
+        .and_then(|_| points.iter().min_by(|a, b| a.value.total_cmp(&b.value)))
+        .filter(|low| low.value <= cur.bw - FALLS_FURTHER_KG)
+        .map(|low| (low.date, low.value));
     // Like the steady state, a forecast that reaches a BMI below 16 (its path or the lower
     // edge of its band) is not shown: the model is not one of starvation, and a line drawn
     // into severe thinness is no forecast to give a participant.
@@ -1212,12 +1229,27 @@ fn forecast(
         end,
         steady,
         underweight,
+        falls_further,
     }
 }
 
 /// The flag for a forecast that heads below BMI 18.5 ([`Forecast::underweight`]): clinical when
 /// the path crosses within the horizon, a notice when only the steady state lies below.
 fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
+    if let Some((date, low)) = fc.falls_further {
+        out.push_flag(
+            EnergyFlag::ForecastUnderweight.as_str(),
+            FlagSeverity::Clinical,
+            format!(
+                "Weight is already in the underweight range (WHO: a BMI below 18.5), and if \
+                 eating goes on as over the last weeks the model expects it to fall further, to \
+                 about {low:.0} kg around {}. Losing more is not a goal at that weight; please \
+                 review this with a licensed clinician.",
+                date.format("%-d %B %Y")
+            ),
+        );
+        return;
+    }
     let Some((crosses, rest)) = fc.underweight else {
         return;
     };

@@ -347,7 +347,7 @@ impl MetricModule for EnergyModule {
                 "forecast_underweight",
                 "flag",
                 "",
-                "At the current intake, weight heads below a BMI of 18.5",
+                "At the current intake, weight heads below a BMI of 18.5, or further below it",
             ),
             OutputSpec::new(
                 "left_before_period",

@@ -123,7 +123,7 @@ code_enum! {
         /// At the intake the weight trend implies, the model takes weight below BMI 18.5 (WHO
         /// underweight) within the forecast horizon, or comes to rest there (for a clinician
         /// when within the horizon).
-        ForecastUnderweight = "forecast_underweight" => "At the current intake, weight heads below a BMI of 18.5",
+        ForecastUnderweight = "forecast_underweight" => "At the current intake, weight heads below a BMI of 18.5, or further below it",
         /// Left the program before the period began: the period's energy figures are not estimated.
         LeftBeforePeriod = "left_before_period" => "Left before the period: its energy figures not estimated",
         /// The energy-balance estimates are not made for this person (a pregnancy).

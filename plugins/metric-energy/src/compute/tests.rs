@@ -1009,6 +1009,20 @@ fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
     // The same loss from 90 kg (BMI 33) raises nothing, nor does a steady healthy weight.
     assert_eq!(flag(&run_with(90.0, 0.5)), None);
     assert_eq!(flag(&run_with(58.0, 0.0)), None);
+    // Already underweight (BMI 18.5 is 50.4 kg at 1.65 m): 52 kg losing 0.3 kg a week is about
+    // 48.4 kg (BMI 17.8) at the period's end, and the forecast goes on down. With the outcomes
+    // module's `underweight_bmi_below` set lower (17) nothing else flags this person, and the
+    // forecast flag said nothing either, since the path did not "cross" 18.5.
+    let out = run_with(52.0, 0.3);
+    let (severity, message) = flag(&out).expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(
+        message.contains("already in the underweight range"),
+        "{message}"
+    );
+    assert!(message.contains("fall further"), "{message}");
+    // The same weight held steady raises nothing.
+    assert_eq!(flag(&run_with(48.0, 0.0)), None);
 }
 
 /// In a first fortnight (no two-week block of logs and trend for the person's own share yet) the share missing from
