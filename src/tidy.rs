@@ -2,7 +2,7 @@
 //! column names), weekly series in long form, and the data-quality list.
 
 use crate::diag::Diagnostic;
-use crate::group::GroupReport;
+use crate::group::{GroupReport, ParticipantSummary};
 use crate::modules::ModuleResults;
 use cohortpress_metric_api::{Flag, ParticipantData, Period, Scalar, TextValue};
 use rayon::prelude::*;
@@ -15,6 +15,16 @@ use std::io::Write;
 pub struct TidyParticipant {
     /// Participant id (never the name).
     pub participant_id: String,
+    /// Day of enrolment (profile.yaml), ISO 8601.
+    pub enrolled: String,
+    /// Day of withdrawal (profile.yaml), ISO 8601, when it is on or before the period's end.
+    pub withdrew: Option<String>,
+    /// Has a baseline weight: counted in the group report's intention-to-treat denominator.
+    pub started: bool,
+    /// Started and weighed in within the period's last 28 days: the group report has their
+    /// weight at the period's end (a completer); without it, its primary analysis (BOCF)
+    /// counts no change.
+    pub completer: bool,
     /// Group attributes.
     pub groups: BTreeMap<String, String>,
     /// Scalars by module.
@@ -35,10 +45,28 @@ pub struct TidyParticipant {
     pub failures: Vec<(String, String)>,
 }
 
-/// Collects a participant's tidy metrics from the module results.
-pub fn participant(data: &ParticipantData, results: &ModuleResults) -> TidyParticipant {
+/// Collects a participant's tidy metrics from the module results and their row for the group
+/// step (`summary`: who the group report counts as started and as a completer).
+pub fn participant(
+    data: &ParticipantData,
+    results: &ModuleResults,
+    summary: &ParticipantSummary,
+) -> TidyParticipant {
+    // As the group step counts them: started needs a positive, finite baseline weight.
+    let started = summary.started
+        && summary
+            .baseline_kg
+            .is_some_and(|b| b.is_finite() && b > 0.0);
     let mut t = TidyParticipant {
         participant_id: data.profile.id.clone(),
+        enrolled: data.profile.enrolled.to_string(),
+        withdrew: data
+            .profile
+            .withdrew
+            .filter(|_| summary.withdrawn)
+            .map(|d| d.to_string()),
+        started,
+        completer: started && summary.outcome_kg.is_some(),
         groups: data.profile.groups.clone(),
         scalars: Vec::new(),
         texts: Vec::new(),
@@ -196,6 +224,10 @@ pub fn render(
         "participant_id".to_string(),
         "period_from".into(),
         "period_to".into(),
+        "enrolled".into(),
+        "withdrew".into(),
+        "started".into(),
+        "completer".into(),
     ];
     header.extend(columns.group_keys.iter().map(|k| format!("group_{k}")));
     for ((_, m, n), interval) in &columns.scalars {
@@ -244,7 +276,15 @@ pub fn render(
             chunk.par_iter().map(|id| load(id)).collect();
         for r in parsed {
             let Some(r) = r? else { continue };
-            let mut rec = vec![r.participant_id.clone(), from.clone(), to.clone()];
+            let mut rec = vec![
+                r.participant_id.clone(),
+                from.clone(),
+                to.clone(),
+                r.enrolled.clone(),
+                r.withdrew.clone().unwrap_or_default(),
+                r.started.to_string(),
+                r.completer.to_string(),
+            ];
             rec.extend(
                 columns
                     .group_keys
@@ -396,6 +436,22 @@ pub fn datapackage(
         id(),
         DpField::required("period_from", "date", "first day of the reporting period"),
         DpField::required("period_to", "date", "last day of the reporting period"),
+        DpField::required("enrolled", "date", "day of enrolment (profile.yaml)"),
+        DpField::new(
+            "withdrew",
+            "date",
+            "day the participant withdrew (profile.yaml); empty when they had not withdrawn by period_to. Rows dated after it are not read, so their figures end there",
+        ),
+        DpField::required(
+            "started",
+            "boolean",
+            "has a baseline weight (a weigh-in on or after enrolment): counted in the group report's intention-to-treat denominator",
+        ),
+        DpField::required(
+            "completer",
+            "boolean",
+            "started and weighed in within the last 28 days of the period: the group report has their weight at the period's end (outcomes.change_kg and change_percent); for anyone else who started, its primary analysis (baseline carried forward) counts no change and its sensitivity analysis (last observation carried forward) counts their outcomes.change_kg",
+        ),
     ];
     for k in &columns.group_keys {
         fields.push(DpField::new(

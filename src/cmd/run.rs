@@ -94,7 +94,10 @@ fn report_failure(e: &RunError, as_log: bool) -> i32 {
         }
         other => tracing::error!("{other:#}"),
     }
-    tracing::error!(exit_code = code, "stopped: the output folder was left as it was");
+    tracing::error!(
+        exit_code = code,
+        "stopped: the output folder was left as it was"
+    );
     code
 }
 

@@ -700,10 +700,11 @@ fn process_participant(
             rec.reports.push(written);
         }
         rec.reports.sort();
-        rec.summary = Some(SummaryRecord::from_summary(&summary_row(
-            plan, &data, &results,
+        let summary = summary_row(plan, &data, &results);
+        rec.summary = Some(SummaryRecord::from_summary(&summary));
+        rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(
+            &data, &results, &summary,
         )));
-        rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(&data, &results)));
         // Clinician follow-up list: this participant's flags, when the program turns it on.
         rec.followup = report::followup::for_participant(&plan.report_scope(), &data, &results);
     }

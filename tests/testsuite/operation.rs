@@ -567,7 +567,7 @@ fn an_incremental_run_recomputes_a_record_of_the_older_format() {
         r.stderr
     );
     let rec: serde_json::Value = serde_json::from_slice(&std::fs::read(&cache).unwrap()).unwrap();
-    assert_eq!(rec["format"], 2);
+    assert_eq!(rec["format"], cohortpress::run::partial::FORMAT);
     assert_eq!(rec["failures"], serde_json::json!([]));
 }
 
