@@ -411,6 +411,7 @@ pub fn group_json(group: &GroupReport) -> Result<Vec<u8>, TidyError> {
 pub fn datapackage(
     columns: &Columns,
     specs: &[cohortpress_metric_api::ModuleSpec],
+    run: &RunInfo,
 ) -> Result<Vec<u8>, TidyError> {
     // What a module declares about one of its outputs: "description (unit)".
     let declared = |module: &str, name: &str| -> String {
@@ -499,8 +500,11 @@ pub fn datapackage(
         profile: "tabular-data-package",
         name: "cohortpress-metrics",
         title: "cohortpress tidy metrics",
-        description: "The tidy metrics of one run. Every file described here is identified health \
-                      data for the program's own staff and analysts; none goes to the sponsor.",
+        description: "The tidy metrics of one run (`run`: the tool, program, period, as-of date and \
+                      module settings that made them, as in the output folder's manifest.json). \
+                      Every file described here is identified health data for the program's own \
+                      staff and analysts; none goes to the sponsor.",
+        run,
         resources: vec![
             DpResource::new(
                 "participants",
@@ -593,13 +597,37 @@ pub fn datapackage(
     Ok(out)
 }
 
+/// Which run made the tidy files: the same values as the output folder's `manifest.json`, so
+/// `metrics/` handed on alone still says where it came from. A custom property of the
+/// descriptor (the Data Package specification allows properties of one's own).
+#[derive(Debug, Clone, Serialize)]
+pub struct RunInfo {
+    /// `cohortpress VERSION`.
+    pub tool: String,
+    /// `program.id`.
+    pub program_id: String,
+    /// blake3 of `program.yaml` as read.
+    pub program_yaml_blake3: String,
+    /// blake3 over the template overrides (`built-in` without any).
+    pub templates_blake3: String,
+    /// First day of the period.
+    pub period_from: String,
+    /// Last day of the period.
+    pub period_to: String,
+    /// The day treated as today.
+    pub as_of: String,
+    /// Every module with its settings, one line each (as in the manifest).
+    pub modules: Vec<String>,
+}
+
 /// A Data Package descriptor ([`datapackage`]); fields in the order the specification lists them.
 #[derive(Serialize)]
-struct DpPackage {
+struct DpPackage<'a> {
     profile: &'static str,
     name: &'static str,
     title: &'static str,
     description: &'static str,
+    run: &'a RunInfo,
     resources: Vec<DpResource>,
 }
 

@@ -829,7 +829,7 @@ fn write_tidy(
     staging.write("metrics/data-quality.csv", &tidy::data_quality(diags)?)?;
     staging.write(
         "metrics/datapackage.json",
-        &tidy::datapackage(columns, &plan.modules.specs())?,
+        &tidy::datapackage(columns, &plan.modules.specs(), &plan.run_info())?,
     )?;
     if let Some(group) = group {
         staging.write("metrics/group.json", &tidy::group_json(group)?)?;

@@ -224,3 +224,40 @@ fn participants_csv_tells_enrolment_withdrawal_and_who_counts_as_a_completer() {
         "someone in the sample is not a completer"
     );
 }
+
+/// `metrics/` is what an analyst is handed, often without the rest of the output folder: its
+/// `datapackage.json` says which run made the files (tool version, program and the hash of its
+/// program.yaml, period, as-of date, module settings), as `manifest.json` does. It said none
+/// of it, so two folders of tidy files from different months or settings looked alike.
+#[test]
+fn the_datapackage_names_the_run_that_made_the_files() {
+    let t = crate::harness::ProgramTest::sample();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let read = |p: &str| -> Value {
+        serde_json::from_str(&std::fs::read_to_string(t.dir.join("reports").join(p)).unwrap())
+            .unwrap()
+    };
+    let package = read("metrics/datapackage.json");
+    let manifest = read("manifest.json");
+    let run = &package["run"];
+    assert_eq!(
+        run["tool"],
+        format!("cohortpress {}", env!("CARGO_PKG_VERSION"))
+    );
+    for key in [
+        "tool",
+        "program_id",
+        "program_yaml_blake3",
+        "templates_blake3",
+        "period_from",
+        "period_to",
+        "as_of",
+        "modules",
+    ] {
+        assert!(!run[key].is_null(), "no `{key}` in {run}");
+        assert_eq!(run[key], manifest[key], "{key}");
+    }
+    assert_eq!(run["period_from"], "2026-09-01");
+    assert_eq!(run["as_of"], "2026-12-01");
+}
