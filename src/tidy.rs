@@ -143,6 +143,9 @@ pub struct Columns {
     group_keys: BTreeSet<String>,
     scalars: BTreeMap<(usize, String, String), bool>,
     texts: BTreeSet<(usize, String, String)>,
+    /// Text columns holding a value that is not an ISO 8601 day: never typed `date`, whatever
+    /// the module declares.
+    not_dates: BTreeSet<(String, String)>,
 }
 
 impl Columns {
@@ -174,6 +177,11 @@ impl Columns {
         for (m, tx) in &t.texts {
             self.texts
                 .insert((self.rank(m), m.clone(), tx.name.clone()));
+            if !tx.value.is_empty()
+                && chrono::NaiveDate::parse_from_str(&tx.value, "%Y-%m-%d").is_err()
+            {
+                self.not_dates.insert((m.clone(), tx.name.clone()));
+            }
         }
     }
 }
@@ -475,7 +483,16 @@ pub fn datapackage(
         }
     }
     for (_, m, n) in &columns.texts {
-        fields.push(DpField::new(format!("{m}.{n}"), "string", declared(m, n)));
+        // A text output the module declares with the unit `date` is a day, typed `date` when
+        // every value written is one (an external module's may not be).
+        let is_date = !columns.not_dates.contains(&(m.clone(), n.clone()))
+            && specs
+                .iter()
+                .find(|s| s.id == *m)
+                .and_then(|s| s.outputs.iter().find(|o| o.name == *n))
+                .is_some_and(|o| o.unit == "date");
+        let ty = if is_date { "date" } else { "string" };
+        fields.push(DpField::new(format!("{m}.{n}"), ty, declared(m, n)));
     }
     fields.push(DpField::new(
         "clinical_flags",

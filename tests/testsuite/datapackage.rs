@@ -261,3 +261,34 @@ fn the_datapackage_names_the_run_that_made_the_files() {
     assert_eq!(run["period_from"], "2026-09-01");
     assert_eq!(run["as_of"], "2026-12-01");
 }
+
+/// A text output that is a day (the trend's `plateau_onset`) is typed `date`, so a tool
+/// reading the descriptor gives the analyst a date, not a string to parse.
+#[test]
+fn a_day_among_the_text_outputs_is_typed_date() {
+    let t = crate::harness::ProgramTest::sample();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let metrics = t.dir.join("reports/metrics");
+    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let package: Value =
+        serde_json::from_str(&std::fs::read_to_string(metrics.join("datapackage.json")).unwrap())
+            .unwrap();
+    let field = |name: &str| {
+        package["resources"][0]["schema"]["fields"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["name"] == name)
+            .unwrap_or_else(|| panic!("no field {name}"))
+            .clone()
+    };
+    assert_eq!(field("trend.plateau_onset")["type"], "date");
+    // Codes stay strings.
+    assert_eq!(field("trend.status")["type"], "string");
+    let csv = std::fs::read_to_string(metrics.join("participants.csv")).unwrap();
+    assert!(
+        csv.contains(",2026-06-21,"),
+        "SG-001's onset is in the file"
+    );
+}
