@@ -292,3 +292,53 @@ fn a_day_among_the_text_outputs_is_typed_date() {
         "SG-001's onset is in the file"
     );
 }
+
+/// A text column of codes says which codes it holds: every code found in the sample's
+/// `participants.csv` is named in its field's description (`outcomes.weight_change_category`
+/// was described only as "weight-change category", the BMI classes as "WHO BMI class now").
+#[test]
+fn each_code_column_names_its_codes() {
+    let t = crate::harness::ProgramTest::sample();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let metrics = t.dir.join("reports/metrics");
+    let package: Value =
+        serde_json::from_str(&std::fs::read_to_string(metrics.join("datapackage.json")).unwrap())
+            .unwrap();
+    let fields = package["resources"][0]["schema"]["fields"]
+        .as_array()
+        .unwrap()
+        .clone();
+    let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let rows: Vec<csv::StringRecord> = r.records().map(Result::unwrap).collect();
+    for name in [
+        "trend.status",
+        "trend.regain_verdict",
+        "outcomes.bmi_category_baseline",
+        "outcomes.bmi_category_current",
+        "outcomes.weight_change_category",
+        "outcomes.current_weight_source",
+    ] {
+        let i = header.iter().position(|h| h == name).unwrap();
+        let description = fields.iter().find(|f| f["name"] == name).unwrap()["description"]
+            .as_str()
+            .unwrap()
+            .to_string();
+        let words: BTreeSet<&str> = description
+            .split(|c: char| !(c.is_ascii_alphanumeric() || c == '_'))
+            .collect();
+        let codes: BTreeSet<&str> = rows
+            .iter()
+            .map(|x| &x[i])
+            .filter(|v| !v.is_empty())
+            .collect();
+        assert!(!codes.is_empty(), "{name}");
+        for code in codes {
+            assert!(
+                words.contains(code),
+                "{name}: `{code}` is not named in \"{description}\""
+            );
+        }
+    }
+}
