@@ -2,7 +2,7 @@
 //! column names), weekly series in long form, and the data-quality list.
 
 use crate::diag::Diagnostic;
-use crate::group::GroupReport;
+use crate::group::{GroupReport, ParticipantSummary};
 use crate::modules::ModuleResults;
 use cohortpress_metric_api::{Flag, ParticipantData, Period, Scalar, TextValue};
 use rayon::prelude::*;
@@ -15,6 +15,16 @@ use std::io::Write;
 pub struct TidyParticipant {
     /// Participant id (never the name).
     pub participant_id: String,
+    /// Day of enrolment (profile.yaml), ISO 8601.
+    pub enrolled: String,
+    /// Day of withdrawal (profile.yaml), ISO 8601, when it is on or before the period's end.
+    pub withdrew: Option<String>,
+    /// Has a baseline weight: counted in the group report's intention-to-treat denominator.
+    pub started: bool,
+    /// Started and weighed in within the period's last 28 days: the group report has their
+    /// weight at the period's end (a completer); without it, its primary analysis (BOCF)
+    /// counts no change.
+    pub completer: bool,
     /// Group attributes.
     pub groups: BTreeMap<String, String>,
     /// Scalars by module.
@@ -35,10 +45,28 @@ pub struct TidyParticipant {
     pub failures: Vec<(String, String)>,
 }
 
-/// Collects a participant's tidy metrics from the module results.
-pub fn participant(data: &ParticipantData, results: &ModuleResults) -> TidyParticipant {
+/// Collects a participant's tidy metrics from the module results and their row for the group
+/// step (`summary`: who the group report counts as started and as a completer).
+pub fn participant(
+    data: &ParticipantData,
+    results: &ModuleResults,
+    summary: &ParticipantSummary,
+) -> TidyParticipant {
+    // As the group step counts them: started needs a positive, finite baseline weight.
+    let started = summary.started
+        && summary
+            .baseline_kg
+            .is_some_and(|b| b.is_finite() && b > 0.0);
     let mut t = TidyParticipant {
         participant_id: data.profile.id.clone(),
+        enrolled: data.profile.enrolled.to_string(),
+        withdrew: data
+            .profile
+            .withdrew
+            .filter(|_| summary.withdrawn)
+            .map(|d| d.to_string()),
+        started,
+        completer: started && summary.outcome_kg.is_some(),
         groups: data.profile.groups.clone(),
         scalars: Vec::new(),
         texts: Vec::new(),
@@ -115,6 +143,9 @@ pub struct Columns {
     group_keys: BTreeSet<String>,
     scalars: BTreeMap<(usize, String, String), bool>,
     texts: BTreeSet<(usize, String, String)>,
+    /// Text columns holding a value that is not an ISO 8601 day: never typed `date`, whatever
+    /// the module declares.
+    not_dates: BTreeSet<(String, String)>,
 }
 
 impl Columns {
@@ -146,6 +177,11 @@ impl Columns {
         for (m, tx) in &t.texts {
             self.texts
                 .insert((self.rank(m), m.clone(), tx.name.clone()));
+            if !tx.value.is_empty()
+                && chrono::NaiveDate::parse_from_str(&tx.value, "%Y-%m-%d").is_err()
+            {
+                self.not_dates.insert((m.clone(), tx.name.clone()));
+            }
         }
     }
 }
@@ -196,6 +232,10 @@ pub fn render(
         "participant_id".to_string(),
         "period_from".into(),
         "period_to".into(),
+        "enrolled".into(),
+        "withdrew".into(),
+        "started".into(),
+        "completer".into(),
     ];
     header.extend(columns.group_keys.iter().map(|k| format!("group_{k}")));
     for ((_, m, n), interval) in &columns.scalars {
@@ -244,7 +284,15 @@ pub fn render(
             chunk.par_iter().map(|id| load(id)).collect();
         for r in parsed {
             let Some(r) = r? else { continue };
-            let mut rec = vec![r.participant_id.clone(), from.clone(), to.clone()];
+            let mut rec = vec![
+                r.participant_id.clone(),
+                from.clone(),
+                to.clone(),
+                r.enrolled.clone(),
+                r.withdrew.clone().unwrap_or_default(),
+                r.started.to_string(),
+                r.completer.to_string(),
+            ];
             rec.extend(
                 columns
                     .group_keys
@@ -371,6 +419,7 @@ pub fn group_json(group: &GroupReport) -> Result<Vec<u8>, TidyError> {
 pub fn datapackage(
     columns: &Columns,
     specs: &[cohortpress_metric_api::ModuleSpec],
+    run: &RunInfo,
 ) -> Result<Vec<u8>, TidyError> {
     // What a module declares about one of its outputs: "description (unit)".
     let declared = |module: &str, name: &str| -> String {
@@ -396,6 +445,22 @@ pub fn datapackage(
         id(),
         DpField::required("period_from", "date", "first day of the reporting period"),
         DpField::required("period_to", "date", "last day of the reporting period"),
+        DpField::required("enrolled", "date", "day of enrolment (profile.yaml)"),
+        DpField::new(
+            "withdrew",
+            "date",
+            "day the participant withdrew (profile.yaml); empty when they had not withdrawn by period_to. Rows dated after it are not read, so their figures end there",
+        ),
+        DpField::required(
+            "started",
+            "boolean",
+            "has a baseline weight (a weigh-in on or after enrolment): counted in the group report's intention-to-treat denominator",
+        ),
+        DpField::required(
+            "completer",
+            "boolean",
+            "started and weighed in within the last 28 days of the period: the group report has their weight at the period's end (outcomes.change_kg and change_percent); for anyone else who started, its primary analysis (baseline carried forward) counts no change and its sensitivity analysis (last observation carried forward) counts their outcomes.change_kg",
+        ),
     ];
     for k in &columns.group_keys {
         fields.push(DpField::new(
@@ -418,7 +483,16 @@ pub fn datapackage(
         }
     }
     for (_, m, n) in &columns.texts {
-        fields.push(DpField::new(format!("{m}.{n}"), "string", declared(m, n)));
+        // A text output the module declares with the unit `date` is a day, typed `date` when
+        // every value written is one (an external module's may not be).
+        let is_date = !columns.not_dates.contains(&(m.clone(), n.clone()))
+            && specs
+                .iter()
+                .find(|s| s.id == *m)
+                .and_then(|s| s.outputs.iter().find(|o| o.name == *n))
+                .is_some_and(|o| o.unit == "date");
+        let ty = if is_date { "date" } else { "string" };
+        fields.push(DpField::new(format!("{m}.{n}"), ty, declared(m, n)));
     }
     fields.push(DpField::new(
         "clinical_flags",
@@ -443,8 +517,11 @@ pub fn datapackage(
         profile: "tabular-data-package",
         name: "cohortpress-metrics",
         title: "cohortpress tidy metrics",
-        description: "The tidy metrics of one run. Every file described here is identified health \
-                      data for the program's own staff and analysts; none goes to the sponsor.",
+        description: "The tidy metrics of one run (`run`: the tool, program, period, as-of date and \
+                      module settings that made them, as in the output folder's manifest.json). \
+                      Every file described here is identified health data for the program's own \
+                      staff and analysts; none goes to the sponsor.",
+        run,
         resources: vec![
             DpResource::new(
                 "participants",
@@ -537,13 +614,37 @@ pub fn datapackage(
     Ok(out)
 }
 
+/// Which run made the tidy files: the same values as the output folder's `manifest.json`, so
+/// `metrics/` handed on alone still says where it came from. A custom property of the
+/// descriptor (the Data Package specification allows properties of one's own).
+#[derive(Debug, Clone, Serialize)]
+pub struct RunInfo {
+    /// `cohortpress VERSION`.
+    pub tool: String,
+    /// `program.id`.
+    pub program_id: String,
+    /// blake3 of `program.yaml` as read.
+    pub program_yaml_blake3: String,
+    /// blake3 over the template overrides (`built-in` without any).
+    pub templates_blake3: String,
+    /// First day of the period.
+    pub period_from: String,
+    /// Last day of the period.
+    pub period_to: String,
+    /// The day treated as today.
+    pub as_of: String,
+    /// Every module with its settings, one line each (as in the manifest).
+    pub modules: Vec<String>,
+}
+
 /// A Data Package descriptor ([`datapackage`]); fields in the order the specification lists them.
 #[derive(Serialize)]
-struct DpPackage {
+struct DpPackage<'a> {
     profile: &'static str,
     name: &'static str,
     title: &'static str,
     description: &'static str,
+    run: &'a RunInfo,
     resources: Vec<DpResource>,
 }
 

@@ -1,7 +1,7 @@
 //! `run`, `merge` and `modules`: the command line turned into plain options, the run's outcome
 //! into log lines and an exit code.
 
-use crate::cmd::cli::{FormatArg, MergeArgs, RunArgs};
+use crate::cmd::cli::{FormatArg, LogFormat, MergeArgs, RunArgs};
 use crate::exit_code;
 use crate::modules;
 use crate::program::{self, Format};
@@ -73,8 +73,12 @@ pub fn error_code(e: &RunError) -> i32 {
 }
 
 /// Reports why a run could not complete and returns its exit code. The problems of an invalid
-/// plan are printed one by one (to the log with `as_log`, as `merge` does).
+/// plan are printed one by one (to the log with `as_log`, as `merge` does and as a run with
+/// `--log-format json` does: a cron log of JSON lines must hold no line of plain text). In
+/// the log, the last line is the one that carries the exit code, as a finished run's `done in`
+/// line does, so a collector that keeps the lines but not the status sees the month stop.
 fn report_failure(e: &RunError, as_log: bool) -> i32 {
+    let code = error_code(e);
     match e {
         RunError::Invalid { diagnostics, .. } => {
             for d in diagnostics {
@@ -84,10 +88,17 @@ fn report_failure(e: &RunError, as_log: bool) -> i32 {
                     eprintln!("{d}");
                 }
             }
+            if !as_log {
+                return code;
+            }
         }
         other => tracing::error!("{other:#}"),
     }
-    error_code(e)
+    tracing::error!(
+        exit_code = code,
+        "stopped: the output folder was left as it was"
+    );
+    code
 }
 
 /// `cohortpress run`.
@@ -97,7 +108,7 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
     crate::modules::external::watch_interrupts();
     let plan = match run::plan::plan(&run_options(args), today) {
         Ok(p) => p,
-        Err(e) => return report_failure(&e, false),
+        Err(e) => return report_failure(&e, args.log_format == LogFormat::Json),
     };
     let plan_s = started.elapsed().as_secs_f64();
     match run::execute::execute(&plan) {

@@ -717,10 +717,11 @@ fn process_participant(
             rec.reports.push(written);
         }
         rec.reports.sort();
-        rec.summary = Some(SummaryRecord::from_summary(&summary_row(
-            plan, &data, &results,
+        let summary = summary_row(plan, &data, &results);
+        rec.summary = Some(SummaryRecord::from_summary(&summary));
+        rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(
+            &data, &results, &summary,
         )));
-        rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(&data, &results)));
         // Clinician follow-up list: this participant's flags, when the program turns it on.
         rec.followup = report::followup::for_participant(&plan.report_scope(), &data, &results);
     }
@@ -845,7 +846,7 @@ fn write_tidy(
     staging.write("metrics/data-quality.csv", &tidy::data_quality(diags)?)?;
     staging.write(
         "metrics/datapackage.json",
-        &tidy::datapackage(columns, &plan.modules.specs())?,
+        &tidy::datapackage(columns, &plan.modules.specs(), &plan.run_info())?,
     )?;
     if let Some(group) = group {
         staging.write("metrics/group.json", &tidy::group_json(group)?)?;

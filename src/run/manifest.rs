@@ -8,11 +8,11 @@ use serde::Serialize;
 #[derive(Serialize)]
 struct Manifest<'a> {
     tool: String,
-    program_id: &'a str,
+    program_id: String,
     /// blake3 of `program.yaml` as read: targets, guidance, privacy and module settings.
-    program_yaml_blake3: &'a str,
+    program_yaml_blake3: String,
     /// blake3 over the template override files (`built-in` without any).
-    templates_blake3: &'a str,
+    templates_blake3: String,
     period_from: String,
     period_to: String,
     as_of: String,
@@ -33,26 +33,23 @@ pub fn manifest(
     staging: &Staging,
     summary: &RunSummary,
 ) -> Result<Vec<u8>, serde_json::Error> {
+    // The same values `metrics/datapackage.json` gives as its `run`.
+    let info = plan.run_info();
     let m = Manifest {
-        tool: format!("cohortpress {}", env!("CARGO_PKG_VERSION")),
-        program_id: &plan.program.info.id,
-        program_yaml_blake3: &plan.key.program_yaml,
-        templates_blake3: &plan.key.templates,
-        period_from: plan.period.from.to_string(),
-        period_to: plan.period.to.to_string(),
-        as_of: plan.as_of.to_string(),
+        tool: info.tool,
+        program_id: info.program_id,
+        program_yaml_blake3: info.program_yaml_blake3,
+        templates_blake3: info.templates_blake3,
+        period_from: info.period_from,
+        period_to: info.period_to,
+        as_of: info.as_of,
         scope: plan.scope(),
         formats: plan
             .formats
             .iter()
             .map(|f| format!("{f:?}").to_lowercase())
             .collect(),
-        modules: plan
-            .modules
-            .settings_fingerprint()
-            .lines()
-            .map(str::to_string)
-            .collect(),
+        modules: info.modules,
         counts: summary,
         inputs,
         outputs: staging.files(),

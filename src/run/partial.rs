@@ -29,7 +29,10 @@ use std::collections::BTreeMap;
 /// - 2: they are only logged ([`crate::modules::ModuleFailure::for_outputs`]); a record of
 ///   version 1 is not reused, so `--incremental` never copies that text into
 ///   `metrics/participants.json` or republishes the report that held it.
-pub const FORMAT: u32 = 2;
+/// - 3: the tidy row holds the participant's enrolment and withdrawal days and whether the
+///   group report counts them as started and as a completer; a version-2 record has none, so
+///   it is recomputed rather than reused with those columns empty.
+pub const FORMAT: u32 = 3;
 /// Folder of the partial results inside an output folder.
 pub const CACHE_DIR: &str = "cache";
 
@@ -332,6 +335,10 @@ struct ScalarRecord {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct TidyRecord {
     participant_id: String,
+    enrolled: String,
+    withdrew: Option<String>,
+    started: bool,
+    completer: bool,
     groups: BTreeMap<String, String>,
     scalars: Vec<(String, ScalarRecord)>,
     texts: Vec<(String, cohortpress_metric_api::TextValue)>,
@@ -347,6 +354,10 @@ impl TidyRecord {
     pub fn from_tidy(t: TidyParticipant) -> Self {
         TidyRecord {
             participant_id: t.participant_id,
+            enrolled: t.enrolled,
+            withdrew: t.withdrew,
+            started: t.started,
+            completer: t.completer,
             groups: t.groups,
             scalars: t
                 .scalars
@@ -377,6 +388,10 @@ impl TidyRecord {
     pub fn into_tidy(self) -> TidyParticipant {
         TidyParticipant {
             participant_id: self.participant_id,
+            enrolled: self.enrolled,
+            withdrew: self.withdrew,
+            started: self.started,
+            completer: self.completer,
             groups: self.groups,
             scalars: self
                 .scalars

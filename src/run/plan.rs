@@ -93,6 +93,25 @@ pub struct RunPlan {
 }
 
 impl RunPlan {
+    /// Which run this is, as `manifest.json` and `metrics/datapackage.json` both say it.
+    pub fn run_info(&self) -> crate::tidy::RunInfo {
+        crate::tidy::RunInfo {
+            tool: format!("cohortpress {}", env!("CARGO_PKG_VERSION")),
+            program_id: self.program.info.id.clone(),
+            program_yaml_blake3: self.key.program_yaml.clone(),
+            templates_blake3: self.key.templates.clone(),
+            period_from: self.period.from.to_string(),
+            period_to: self.period.to.to_string(),
+            as_of: self.as_of.to_string(),
+            modules: self
+                .modules
+                .settings_fingerprint()
+                .lines()
+                .map(str::to_string)
+                .collect(),
+        }
+    }
+
     /// What this run puts in its output folder.
     pub fn scope(&self) -> OutputScope {
         if self.shard.is_some() {

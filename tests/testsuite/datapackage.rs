@@ -68,6 +68,9 @@ pub fn check_package(metrics: &Path) -> Vec<String> {
                         .parse::<i64>()
                         .is_ok_and(|v| c["minimum"].as_i64().is_none_or(|m| v >= m)),
                     "date" => chrono::NaiveDate::parse_from_str(cell, "%Y-%m-%d").is_ok(),
+                    // The values the specification reads by default (trueValues, falseValues).
+                    "boolean" => ["true", "True", "TRUE", "1", "false", "False", "FALSE", "0"]
+                        .contains(&cell),
                     other => panic!("a type the checker does not know: {other}"),
                 };
                 let in_enum = c["enum"]
@@ -145,4 +148,197 @@ fn the_checker_finds_a_broken_tidy_file() {
             .iter()
             .any(|p| p.starts_with("CSV files"))
     );
+}
+
+/// An analyst can tell from `participants.csv` alone who enrolled when, who withdrew, and who
+/// the group report counts as started and as a completer (a weigh-in in the period's last 28
+/// days), and so repeat its intention-to-treat analysis. The file had none of these: the mean of
+/// `outcomes.change_percent` (every participant's last trend weight, however old) is neither the
+/// primary (BOCF) nor the completers' figure the group report prints.
+#[test]
+fn participants_csv_tells_enrolment_withdrawal_and_who_counts_as_a_completer() {
+    let t = crate::harness::ProgramTest::sample();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let metrics = t.dir.join("reports/metrics");
+    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let col = |name: &str| {
+        header
+            .iter()
+            .position(|h| h == name)
+            .unwrap_or_else(|| panic!("no column `{name}` in {header:?}"))
+    };
+    let (id, enrolled, withdrew, started, completer, change) = (
+        col("participant_id"),
+        col("enrolled"),
+        col("withdrew"),
+        col("started"),
+        col("completer"),
+        col("outcomes.change_percent"),
+    );
+    let rows: Vec<csv::StringRecord> = r.records().map(Result::unwrap).collect();
+    let row = |pid: &str| rows.iter().find(|x| &x[id] == pid).unwrap().clone();
+    // SG-018 (profile: enrolled 2026-04-01, withdrew 2026-07-27; last weigh-in 2026-07-25).
+    let sg018 = row("SG-018");
+    assert_eq!(
+        (
+            &sg018[enrolled],
+            &sg018[withdrew],
+            &sg018[started],
+            &sg018[completer]
+        ),
+        ("2026-04-01", "2026-07-27", "true", "false")
+    );
+    // SG-001 (no withdrawal; weighed in on 2026-09-26).
+    let sg001 = row("SG-001");
+    assert_eq!(
+        (&sg001[withdrew], &sg001[started], &sg001[completer]),
+        ("", "true", "true")
+    );
+    // The group report's primary analysis, repeated from the tidy file: a completer's change,
+    // everybody else who started counted as no change.
+    let bocf: Vec<f64> = rows
+        .iter()
+        .filter(|x| &x[started] == "true")
+        .map(|x| {
+            if &x[completer] == "true" {
+                x[change].parse::<f64>().unwrap()
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    let mean = bocf.iter().sum::<f64>() / bocf.len() as f64;
+    let group: Value =
+        serde_json::from_str(&std::fs::read_to_string(metrics.join("group.json")).unwrap())
+            .unwrap();
+    let bocf_group = &group["program"]["stats"]["weight_change"]["bocf"];
+    assert_eq!(bocf_group["n"]["value"], bocf.len() as u64, "{bocf_group}");
+    let printed = bocf_group["percent"]["mean"]["value"].as_f64().unwrap();
+    assert!((mean - printed).abs() < 0.005, "{mean} vs {printed}");
+    let completers = rows.iter().filter(|x| &x[completer] == "true").count();
+    assert!(
+        completers < bocf.len(),
+        "someone in the sample is not a completer"
+    );
+}
+
+/// `metrics/` is what an analyst is handed, often without the rest of the output folder: its
+/// `datapackage.json` says which run made the files (tool version, program and the hash of its
+/// program.yaml, period, as-of date, module settings), as `manifest.json` does. It said none
+/// of it, so two folders of tidy files from different months or settings looked alike.
+#[test]
+fn the_datapackage_names_the_run_that_made_the_files() {
+    let t = crate::harness::ProgramTest::sample();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let read = |p: &str| -> Value {
+        serde_json::from_str(&std::fs::read_to_string(t.dir.join("reports").join(p)).unwrap())
+            .unwrap()
+    };
+    let package = read("metrics/datapackage.json");
+    let manifest = read("manifest.json");
+    let run = &package["run"];
+    assert_eq!(
+        run["tool"],
+        format!("cohortpress {}", env!("CARGO_PKG_VERSION"))
+    );
+    for key in [
+        "tool",
+        "program_id",
+        "program_yaml_blake3",
+        "templates_blake3",
+        "period_from",
+        "period_to",
+        "as_of",
+        "modules",
+    ] {
+        assert!(!run[key].is_null(), "no `{key}` in {run}");
+        assert_eq!(run[key], manifest[key], "{key}");
+    }
+    assert_eq!(run["period_from"], "2026-09-01");
+    assert_eq!(run["as_of"], "2026-12-01");
+}
+
+/// A text output that is a day (the trend's `plateau_onset`) is typed `date`, so a tool
+/// reading the descriptor gives the analyst a date, not a string to parse.
+#[test]
+fn a_day_among_the_text_outputs_is_typed_date() {
+    let t = crate::harness::ProgramTest::sample();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let metrics = t.dir.join("reports/metrics");
+    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let package: Value =
+        serde_json::from_str(&std::fs::read_to_string(metrics.join("datapackage.json")).unwrap())
+            .unwrap();
+    let field = |name: &str| {
+        package["resources"][0]["schema"]["fields"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["name"] == name)
+            .unwrap_or_else(|| panic!("no field {name}"))
+            .clone()
+    };
+    assert_eq!(field("trend.plateau_onset")["type"], "date");
+    // Codes stay strings.
+    assert_eq!(field("trend.status")["type"], "string");
+    let csv = std::fs::read_to_string(metrics.join("participants.csv")).unwrap();
+    assert!(
+        csv.contains(",2026-06-21,"),
+        "SG-001's onset is in the file"
+    );
+}
+
+/// A text column of codes says which codes it holds: every code found in the sample's
+/// `participants.csv` is named in its field's description (`outcomes.weight_change_category`
+/// was described only as "weight-change category", the BMI classes as "WHO BMI class now").
+#[test]
+fn each_code_column_names_its_codes() {
+    let t = crate::harness::ProgramTest::sample();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let metrics = t.dir.join("reports/metrics");
+    let package: Value =
+        serde_json::from_str(&std::fs::read_to_string(metrics.join("datapackage.json")).unwrap())
+            .unwrap();
+    let fields = package["resources"][0]["schema"]["fields"]
+        .as_array()
+        .unwrap()
+        .clone();
+    let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let rows: Vec<csv::StringRecord> = r.records().map(Result::unwrap).collect();
+    for name in [
+        "trend.status",
+        "trend.regain_verdict",
+        "outcomes.bmi_category_baseline",
+        "outcomes.bmi_category_current",
+        "outcomes.weight_change_category",
+        "outcomes.current_weight_source",
+    ] {
+        let i = header.iter().position(|h| h == name).unwrap();
+        let description = fields.iter().find(|f| f["name"] == name).unwrap()["description"]
+            .as_str()
+            .unwrap()
+            .to_string();
+        let words: BTreeSet<&str> = description
+            .split(|c: char| !(c.is_ascii_alphanumeric() || c == '_'))
+            .collect();
+        let codes: BTreeSet<&str> = rows
+            .iter()
+            .map(|x| &x[i])
+            .filter(|v| !v.is_empty())
+            .collect();
+        assert!(!codes.is_empty(), "{name}");
+        for code in codes {
+            assert!(
+                words.contains(code),
+                "{name}: `{code}` is not named in \"{description}\""
+            );
+        }
+    }
 }

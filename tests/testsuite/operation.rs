@@ -411,6 +411,62 @@ fn a_cron_style_run_logs_json_lines_and_no_progress_bar() {
 }
 
 #[test]
+fn a_cron_style_run_that_stops_logs_json_lines_ending_with_its_exit_code() {
+    // A month whose run stops before it starts (a wrong period on the crontab line, a broken
+    // program.yaml, an output folder that is not ours) wrote its reasons as plain text into the
+    // JSON log, with no line carrying the exit code: a collector parsing the log's lines failed
+    // on them, and one alerting on `exit_code` never saw the month.
+    let t = ProgramTest::demo(3);
+    let foreign = out(&t, "documents");
+    std::fs::create_dir_all(&foreign).unwrap();
+    std::fs::write(Path::new(&foreign).join("thesis.txt"), "mine").unwrap();
+    let json = ["--log-format", "json", "--formats", "html"];
+    let mut cases: Vec<(&str, Outcome)> = vec![
+        ("a wrong period", {
+            let mut a = json.to_vec();
+            a.extend(["--period", "2026-13"]);
+            run(&t, &out(&t, "r"), &a)
+        }),
+        ("a folder that is not ours", run(&t, &foreign, &json)),
+    ];
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(&yaml, text.replacen("title:", "titel:", 1)).unwrap();
+    cases.push(("a broken program.yaml", run(&t, &out(&t, "r"), &json)));
+    for (what, r) in &cases {
+        assert!(
+            [2, 3].contains(&r.code),
+            "{what}: exit {}: {}",
+            r.code,
+            r.stderr
+        );
+        let lines: Vec<serde_json::Value> = r
+            .stderr
+            .lines()
+            .map(|l| {
+                serde_json::from_str(l)
+                    .unwrap_or_else(|e| panic!("{what}: not a JSON line ({e}): {l}"))
+            })
+            .collect();
+        let last = lines
+            .last()
+            .unwrap_or_else(|| panic!("{what}: nothing logged"));
+        assert_eq!(last["fields"]["exit_code"], r.code, "{what}: {}", r.stderr);
+        assert_eq!(last["level"], "ERROR", "{what}: {}", r.stderr);
+        // The reason itself is in the log, at ERROR, before the last line.
+        assert!(
+            lines.len() >= 2 && lines.iter().all(|v| v["timestamp"].is_string()),
+            "{what}: {}",
+            r.stderr
+        );
+    }
+    // The wording a person at a terminal reads is unchanged in text format.
+    let r = run(&t, &out(&t, "r"), &["--formats", "html"]);
+    assert_eq!(r.code, 3, "{}", r.stderr);
+    assert!(r.stderr.starts_with("error: program.yaml:"), "{}", r.stderr);
+}
+
+#[test]
 fn an_incremental_run_recomputes_only_what_changed_and_equals_a_full_run() {
     let t = ProgramTest::demo(10);
     let inc = out(&t, "inc");
@@ -511,7 +567,7 @@ fn an_incremental_run_recomputes_a_record_of_the_older_format() {
         r.stderr
     );
     let rec: serde_json::Value = serde_json::from_slice(&std::fs::read(&cache).unwrap()).unwrap();
-    assert_eq!(rec["format"], 2);
+    assert_eq!(rec["format"], cohortpress::run::partial::FORMAT);
     assert_eq!(rec["failures"], serde_json::json!([]));
 }
 

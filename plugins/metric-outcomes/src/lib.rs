@@ -637,14 +637,22 @@ impl MetricModule for OutcomesModule {
                     names::BMI_CATEGORY_BASELINE,
                     "text",
                     "",
-                    "WHO BMI class at baseline",
+                    &format!("WHO BMI class at baseline: {}", codes::<BmiCategory>()),
                 ),
-                OutputSpec::new(names::BMI_CATEGORY_CURRENT, "text", "", "WHO BMI class now"),
+                OutputSpec::new(
+                    names::BMI_CATEGORY_CURRENT,
+                    "text",
+                    "",
+                    &format!("WHO BMI class now: {}", codes::<BmiCategory>()),
+                ),
                 OutputSpec::new(
                     names::WEIGHT_CHANGE_CATEGORY,
                     "text",
                     "",
-                    "weight-change category",
+                    &format!(
+                        "weight-change category, % of baseline: {}",
+                        codes::<WeightChangeCategory>()
+                    ),
                 ),
                 OutputSpec::new(
                     names::CURRENT_WEIGHT_SOURCE,
@@ -1322,6 +1330,15 @@ fn push_medication_flag(
              their advice."
         ),
     );
+}
+
+/// The codes of a closed set, for an output's description: "`a` (label), `b` (label)".
+fn codes<C: cohortpress_metric_api::view::Code>() -> String {
+    C::all()
+        .iter()
+        .map(|c| format!("`{}` ({})", c.code(), c.label()))
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 #[cfg(test)]

@@ -233,7 +233,8 @@ impl MetricModule for TrendModule {
                 OutputSpec::new(
                     names::PLATEAU_ONSET,
                     "text",
-                    "",
+                    // A day, ISO 8601: the tidy metrics' descriptor types it `date`.
+                    "date",
                     "Day the trend entered the plateau band (current plateau)",
                 ),
                 OutputSpec::new(
