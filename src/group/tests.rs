@@ -784,10 +784,12 @@ fn small_withdrawn_cell_gets_a_complement_inside_and_across_sections() {
     assert_eq!(b["withdrawn"]["value"], 0);
 }
 
-#[test]
-fn generated_programs_leak_no_small_cell() {
-    // Deterministic generated programs of many shapes (sizes, uneven sites, two splits,
-    // missing team values); every report must pass the checker.
+/// Deterministic generated programs of many shapes (sizes, uneven sites, two splits, missing
+/// team values) for one seed and minimum cell size; every report must pass the checker. Every
+/// report also runs the LP range audit, so the four seed × minimum combinations are four tests
+/// that the test runner can run side by side (one test of all four took about two minutes of
+/// one core in a debug build, the longest test of the suite).
+fn generated_programs_leak_no_small_cell(seed: u64, min: u32) {
     let shapes: [(usize, [f64; 4]); 5] = [
         (60, [0.5, 0.3, 0.15, 0.05]),
         (120, [0.4, 0.4, 0.1, 0.1]),
@@ -795,16 +797,30 @@ fn generated_programs_leak_no_small_cell() {
         (200, [0.25, 0.25, 0.25, 0.25]),
         (90, [0.7, 0.1, 0.1, 0.1]),
     ];
-    // Two seeds per shape: every report also runs the LP range audit (about 75 s for the
-    // whole test in a debug build).
-    for seed in 1..=2u64 {
-        for (n, w) in &shapes {
-            let rows = generated(seed, *n, w);
-            for min in [11, 5] {
-                check(&rows, &opts(min, &["site", "team"]));
-            }
-        }
+    for (n, w) in &shapes {
+        let rows = generated(seed, *n, w);
+        check(&rows, &opts(min, &["site", "team"]));
     }
+}
+
+#[test]
+fn generated_programs_seed_1_min_11_leak_no_small_cell() {
+    generated_programs_leak_no_small_cell(1, 11);
+}
+
+#[test]
+fn generated_programs_seed_1_min_5_leak_no_small_cell() {
+    generated_programs_leak_no_small_cell(1, 5);
+}
+
+#[test]
+fn generated_programs_seed_2_min_11_leak_no_small_cell() {
+    generated_programs_leak_no_small_cell(2, 11);
+}
+
+#[test]
+fn generated_programs_seed_2_min_5_leak_no_small_cell() {
+    generated_programs_leak_no_small_cell(2, 5);
 }
 
 #[test]
