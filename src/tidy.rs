@@ -124,6 +124,40 @@ pub fn participant(
     t
 }
 
+/// In one participant's `participants.json` record, writes the values and bounds of the
+/// integer-typed scalar columns ([`Columns::integers`]) as JSON integers (`38`, not `38.0`), as
+/// `participants.csv` and its descriptor have them.
+fn whole_numbers_as_integers(row: &mut serde_json::Value, integers: &BTreeSet<(String, String)>) {
+    let Some(scalars) = row.get_mut("scalars").and_then(|s| s.as_array_mut()) else {
+        return;
+    };
+    for entry in scalars {
+        let Some([module, scalar]) = entry.as_array_mut().map(|a| a.as_mut_slice()) else {
+            continue;
+        };
+        let (Some(m), Some(n)) = (
+            module.as_str().map(str::to_string),
+            scalar
+                .get("name")
+                .and_then(|n| n.as_str())
+                .map(str::to_string),
+        ) else {
+            continue;
+        };
+        if !integers.contains(&(m, n)) {
+            continue;
+        }
+        for key in ["value", "lower", "upper"] {
+            if let Some(v) = scalar.get_mut(key)
+                && let Some(x) = v.as_f64()
+            {
+                // Whole and within ±2^53 ([`Columns::integers`]), so the cast is exact.
+                *v = serde_json::Value::from(x as i64);
+            }
+        }
+    }
+}
+
 /// Formats a number for CSV: shortest round-trip representation, empty when missing.
 fn num(v: Option<f64>) -> String {
     match v {
@@ -146,6 +180,9 @@ pub struct Columns {
     /// Text columns holding a value that is not an ISO 8601 day: never typed `date`, whatever
     /// the module declares.
     not_dates: BTreeSet<(String, String)>,
+    /// Scalar columns holding a value or bound that is not a whole number: never typed
+    /// `integer`, whatever the module declares.
+    not_whole: BTreeSet<(String, String)>,
 }
 
 impl Columns {
@@ -169,6 +206,13 @@ impl Columns {
         self.group_keys.extend(t.groups.keys().cloned());
         for (m, sc) in &t.scalars {
             let interval = sc.lower.is_some() || sc.upper.is_some();
+            if [sc.value, sc.lower, sc.upper]
+                .into_iter()
+                .flatten()
+                .any(|x| x.fract() != 0.0 || x.abs() > MAX_EXACT_INTEGER)
+            {
+                self.not_whole.insert((m.clone(), sc.name.clone()));
+            }
             *self
                 .scalars
                 .entry((self.rank(m), m.clone(), sc.name.clone()))
@@ -183,6 +227,32 @@ impl Columns {
                 self.not_dates.insert((m.clone(), tx.name.clone()));
             }
         }
+    }
+}
+
+/// The largest whole number an `f64` holds exactly (2^53): beyond it a written integer could
+/// differ from the value.
+const MAX_EXACT_INTEGER: f64 = 9_007_199_254_740_992.0;
+
+impl Columns {
+    /// The scalar columns (module, name) typed `integer`: declared counts
+    /// ([`cohortpress_metric_api::OutputSpec::whole`]) whose every value written is whole.
+    pub fn integers(
+        &self,
+        specs: &[cohortpress_metric_api::ModuleSpec],
+    ) -> BTreeSet<(String, String)> {
+        self.scalars
+            .keys()
+            .filter(|(_, m, n)| {
+                !self.not_whole.contains(&(m.clone(), n.clone()))
+                    && specs
+                        .iter()
+                        .find(|s| s.id == *m)
+                        .and_then(|s| s.outputs.iter().find(|o| o.name == *n))
+                        .is_some_and(|o| o.whole)
+            })
+            .map(|(_, m, n)| (m.clone(), n.clone()))
+            .collect()
     }
 }
 
@@ -213,6 +283,7 @@ pub type TidyError = Box<dyn std::error::Error + Send + Sync>;
 pub fn render(
     period: Period,
     columns: &Columns,
+    specs: &[cohortpress_metric_api::ModuleSpec],
     ids: &[String],
     load: &LoadTidy<'_>,
     sinks: TidySinks<'_>,
@@ -277,6 +348,7 @@ pub fn render(
         #[serde(flatten)]
         row: &'a TidyParticipant,
     }
+    let integers = columns.integers(specs);
     let mut first = true;
     // Parsed a chunk at a time in parallel, written in id order.
     for chunk in ids.chunks(256) {
@@ -339,14 +411,13 @@ pub fn render(
 
             json.write_all(if first { b"\n" } else { b",\n" })?;
             first = false;
-            serde_json::to_writer(
-                &mut *json,
-                &JsonRow {
-                    period_from: &from,
-                    period_to: &to,
-                    row: &r,
-                },
-            )?;
+            let mut row = serde_json::to_value(JsonRow {
+                period_from: &from,
+                period_to: &to,
+                row: &r,
+            })?;
+            whole_numbers_as_integers(&mut row, &integers);
+            serde_json::to_writer(&mut *json, &row)?;
             for row in &r.weekly_rows {
                 weekly.write_record(row)?;
             }
@@ -413,7 +484,7 @@ pub fn group_json(group: &GroupReport) -> Result<Vec<u8>, TidyError> {
 /// Written by hand from [`Columns`] and the modules' declared outputs
 /// ([`cohortpress_metric_api::ModuleSpec`]): the descriptor is a small JSON document, and no
 /// maintained Rust crate writes one. Numbers are `number` (written unrounded, never `NaN` or
-/// infinite), dates `date` (ISO 8601), an empty cell is a missing value, and each file's
+/// infinite), counts `integer` (a module's declared counts whose every value is whole), dates `date` (ISO 8601), an empty cell is a missing value, and each file's
 /// primary key is declared where one exists. It holds column names only (group keys and module
 /// outputs), nothing of any participant's data.
 pub fn datapackage(
@@ -469,14 +540,20 @@ pub fn datapackage(
             format!("the participant's `{k}` under `groups:` in profile.yaml"),
         ));
     }
+    let integers = columns.integers(specs);
     for ((_, m, n), interval) in &columns.scalars {
         let what = declared(m, n);
-        fields.push(DpField::new(format!("{m}.{n}"), "number", what.clone()));
+        let ty = if integers.contains(&(m.clone(), n.clone())) {
+            "integer"
+        } else {
+            "number"
+        };
+        fields.push(DpField::new(format!("{m}.{n}"), ty, what.clone()));
         if *interval {
             for (end, word) in [("lower95", "lower"), ("upper95", "upper")] {
                 fields.push(DpField::new(
                     format!("{m}.{n}_{end}"),
-                    "number",
+                    ty,
                     format!("{word} end of the 95 % interval of {m}.{n}: {what}"),
                 ));
             }

@@ -77,6 +77,7 @@ impl MetricModule for TestModule {
                 kind: "scalar".into(),
                 unit: String::new(),
                 description: "weigh-ins".into(),
+                whole: true,
             }],
             requires: self.requires.clone(),
         }

@@ -830,6 +830,7 @@ fn write_tidy(
     tidy::render(
         plan.period,
         columns,
+        &plan.modules.specs(),
         ids,
         &load,
         tidy::TidySinks {

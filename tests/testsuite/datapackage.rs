@@ -342,3 +342,53 @@ fn each_code_column_names_its_codes() {
         }
     }
 }
+
+/// Counts are typed `integer` and written as whole numbers in both tidy files: a researcher's
+/// reader took `trend.weigh_ins_used` (typed `number`) as a float, and `participants.json` held
+/// `38.0`. Measures that are not counts stay `number`.
+#[test]
+fn counts_are_integers_in_the_descriptor_the_csv_and_the_json() {
+    let t = crate::harness::ProgramTest::sample();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let metrics = t.dir.join("reports/metrics");
+    let package: Value =
+        serde_json::from_str(&std::fs::read_to_string(metrics.join("datapackage.json")).unwrap())
+            .unwrap();
+    let fields = package["resources"][0]["schema"]["fields"]
+        .as_array()
+        .unwrap();
+    let ty = |name: &str| {
+        fields
+            .iter()
+            .find(|f| f["name"] == name)
+            .unwrap_or_else(|| panic!("{name}"))["type"]
+            .as_str()
+            .unwrap()
+            .to_string()
+    };
+    for name in [
+        "trend.weigh_ins_used",
+        "trend.outliers_ignored",
+        "energy.logged_days",
+        "adherence.sessions_attended",
+    ] {
+        assert_eq!(ty(name), "integer", "{name}");
+    }
+    assert_eq!(ty("trend.current_weight_kg"), "number");
+    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let json: Value =
+        serde_json::from_str(&std::fs::read_to_string(metrics.join("participants.json")).unwrap())
+            .unwrap();
+    let mut seen = 0;
+    for row in json.as_array().unwrap() {
+        for entry in row["scalars"].as_array().unwrap() {
+            if entry[0] == "trend" && entry[1]["name"] == "weigh_ins_used" {
+                let v = &entry[1]["value"];
+                assert!(v.is_u64(), "weigh_ins_used written as {v}");
+                seen += 1;
+            }
+        }
+    }
+    assert!(seen > 40, "{seen}");
+}

@@ -293,13 +293,15 @@ impl MetricModule for AdherenceModule {
                     "scalar",
                     "",
                     "sessions offered in the period",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     names::SESSIONS_ATTENDED,
                     "scalar",
                     "",
                     "sessions attended in the period",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     names::ATTENDANCE_PERCENT,
                     "scalar",
@@ -311,13 +313,15 @@ impl MetricModule for AdherenceModule {
                     "scalar",
                     "",
                     "sessions offered from enrolment to the end of observation",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     names::SESSIONS_ATTENDED_TO_DATE,
                     "scalar",
                     "",
                     "sessions attended from enrolment to the end of observation",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     names::ATTENDANCE_TO_DATE_PERCENT,
                     "scalar",
@@ -335,19 +339,22 @@ impl MetricModule for AdherenceModule {
                     "scalar",
                     "d",
                     "longest run of days with a weigh-in, program to date",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     names::LONGEST_GAP_DAYS,
                     "scalar",
                     "d",
                     "longest run of days with no record, program to date",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     names::DAYS_SINCE_LAST_RECORD,
                     "scalar",
                     "d",
                     "days from the last record to the end of observation",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     AdherenceFlag::Gap.as_str(),
                     "flag",

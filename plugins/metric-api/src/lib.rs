@@ -224,6 +224,11 @@ pub struct OutputSpec {
     pub unit: String,
     /// One-line description.
     pub description: String,
+    /// A scalar whose values are whole numbers (a count of days, weigh-ins or sessions): the
+    /// tidy metrics type it `integer` and write it without a decimal point, as long as every
+    /// value written is whole. Absent (false) for modules that do not say.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub whole: bool,
 }
 
 impl OutputSpec {
@@ -234,7 +239,14 @@ impl OutputSpec {
             kind: kind.into(),
             unit: unit.into(),
             description: description.into(),
+            whole: false,
         }
+    }
+
+    /// The same output, declared a count: its values are whole numbers ([`OutputSpec::whole`]).
+    pub fn counted(mut self) -> Self {
+        self.whole = true;
+        self
     }
 }
 

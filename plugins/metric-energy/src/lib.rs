@@ -215,7 +215,8 @@ impl MetricModule for EnergyModule {
                 "scalar",
                 "d",
                 "Days with an intake log in the period",
-            ),
+            )
+            .counted(),
             OutputSpec::new(
                 "implied_intake_kcal_per_day",
                 "scalar",

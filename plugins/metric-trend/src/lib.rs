@@ -297,19 +297,21 @@ impl MetricModule for TrendModule {
                     "kg",
                     "Estimated day-to-day scatter of weigh-ins around the trend",
                 ),
-                OutputSpec::new(names::WEIGH_INS_USED, "scalar", "", "Weigh-ins used"),
+                OutputSpec::new(names::WEIGH_INS_USED, "scalar", "", "Weigh-ins used").counted(),
                 OutputSpec::new(
                     names::OUTLIERS_IGNORED,
                     "scalar",
                     "",
                     "Weigh-ins ignored as outliers",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     names::DAYS_SINCE_LAST_WEIGH_IN,
                     "scalar",
                     "d",
                     "Days from the last weigh-in to the period end",
-                ),
+                )
+                .counted(),
                 OutputSpec::new(
                     names::STATUS,
                     "text",
