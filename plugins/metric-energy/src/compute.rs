@@ -1633,11 +1633,25 @@ fn options_table(
         let cut = (imp.lower.unwrap_or(imp.value) - floor).max(0.0);
         let rest_kcal = (-d_ei - cut).max(0.0);
         let rest_minutes = (1.0 - BETA) * rest_kcal / kcal_per_min;
+        // The intake it leads to, and the floor where it belongs: at the estimate's low end
+        // ("down to 1500" beside a resulting intake of 2505 read as "eat 1500 kcal a day").
+        let low = imp.lower.unwrap_or(imp.value);
+        let to = if low > floor {
+            format!(
+                "to about {:.0} kcal a day, {floor:.0} at the low end of the estimate",
+                imp.value - cut
+            )
+        } else {
+            format!(
+                "none: the low end of the estimate, {low:.0} kcal a day, is already at or below \
+                 {floor:.0}"
+            )
+        };
         let (feasible, reason) = if rest_minutes > MAX_WALK_MIN {
             (
                 false,
                 format!(
-                    "Even with intake at {floor:.0} kcal a day it would take about \
+                    "Even eating about {cut:.0} kcal a day less ({to}), it would take about \
                      {rest_minutes:.0} minutes of walking a day; a slower target rate is more \
                      realistic."
                 ),
@@ -1646,7 +1660,7 @@ fn options_table(
             (
                 true,
                 format!(
-                    "Eating about {cut:.0} kcal a day less (down to {floor:.0}) and walking about \
+                    "Eating about {cut:.0} kcal a day less ({to}) and walking about \
                      {rest_minutes:.0} minutes more a day together restore a loss of {:.2} \
                      kg/week.",
                     s.target_loss

@@ -437,6 +437,18 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
         cell_text(opt, 2, "feasible"),
         if combined > 120.0 { "no" } else { "yes" }
     );
+    // Its words give the intake it leads to, not the floor as if it were that intake: "(down
+    // to 1200)" beside a resulting intake far above 1200 read as "eat 1200 kcal a day".
+    let reason = cell_text(opt, 2, "reason");
+    assert!(
+        reason.contains(&format!("to about {:.0} kcal a day", imp - cut)),
+        "{reason}"
+    );
+    assert!(
+        reason.contains("1200 at the low end of the estimate"),
+        "{reason}"
+    );
+    assert!(!reason.contains("down to 1200"), "{reason}");
 
     // A target above the safe maximum is refused whatever the numbers.
     c.settings = EnergyModule
