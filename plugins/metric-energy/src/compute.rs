@@ -1087,6 +1087,8 @@ struct Forecast {
     /// lies at least [`FALLS_FURTHER_KG`] below the current weight (also computed before a path
     /// below BMI 16 is withheld).
     falls_further: Option<(NaiveDate, f64)>,
+    /// The weight at BMI 16 ([`MIN_STEADY_STATE_BMI`]), kg: a flag names no weight below it.
+    severe_kg: f64,
 }
 
 /// Forecast to the program end (never shorter than `forecast_min_days`: in a program's last
@@ -1230,21 +1232,31 @@ fn forecast(
         steady,
         underweight,
         falls_further,
+        severe_kg: min_kg,
     }
 }
 
 /// The flag for a forecast that heads below BMI 18.5 ([`Forecast::underweight`]): clinical when
-/// the path crosses within the horizon, a notice when only the steady state lies below.
+/// the path crosses within the horizon or the steady state lies below BMI 16 (WHO severe
+/// thinness: the implied intake is far below what the person's body needs at any healthy
+/// weight), a notice when only the steady state lies below 18.5. Like the forecast, a flag
+/// names no weight below BMI 16: the model is not one of starvation ("settle at about 29 kg"
+/// was printed for a woman of 1.65 m).
 fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     if let Some((date, low)) = fc.falls_further {
+        let to = if low < fc.severe_kg {
+            "into severe thinness (a BMI below 16), where this model no longer applies,".into()
+        } else {
+            format!("to about {low:.0} kg")
+        };
         out.push_flag(
             EnergyFlag::ForecastUnderweight.as_str(),
             FlagSeverity::Clinical,
             format!(
                 "Weight is already in the underweight range (WHO: a BMI below 18.5), and if \
-                 eating goes on as over the last weeks the model expects it to fall further, to \
-                 about {low:.0} kg around {}. Losing more is not a goal at that weight; please \
-                 review this with a licensed clinician.",
+                 eating goes on as over the last weeks the model expects it to fall further, \
+                 {to} around {}. Losing more is not a goal at that weight; please review this \
+                 with a licensed clinician.",
                 date.format("%-d %B %Y")
             ),
         );
@@ -1253,6 +1265,21 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     let Some((crosses, rest)) = fc.underweight else {
         return;
     };
+    if crosses.is_none()
+        && let Some(w) = rest
+        && w < fc.severe_kg
+    {
+        out.push_flag(
+            EnergyFlag::ForecastUnderweight.as_str(),
+            FlagSeverity::Clinical,
+            "If eating goes on as over the last weeks, the model expects weight to keep \
+             falling, past the underweight range (WHO: a BMI below 18.5) into severe thinness \
+             (a BMI below 16), where this model no longer applies. Losing more is not a goal; \
+             please review this with a licensed clinician."
+                .to_string(),
+        );
+        return;
+    }
     let rest_words = |w: f64| format!("to settle at about {w:.0} kg");
     let (severity, what) = match (crosses, rest) {
         (Some(d), _) => (
