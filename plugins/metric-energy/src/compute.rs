@@ -126,6 +126,12 @@ const MIN_STEADY_STATE_BMI: f64 = 16.0;
 /// whose forecast went on down to 16.
 const FALLS_FURTHER_KG: f64 = 1.0;
 
+/// BMI from which WHO calls a weight overweight (pre-obese), below it normal (18.5–24.9; WHO
+/// 2000, Technical Report Series 894): a steady state below BMI 16 is a clinical flag only for
+/// someone below it now. For someone heavier, an intake that would end there if held for ever
+/// is a usual weight-loss diet (1,200–1,500 kcal/d for women, 1,500–1,800 for men, AHA/ACC/TOS
+/// 2013; from memory), and the forecast's path is what tells when it goes too far.
+const OVERWEIGHT_BMI: f64 = 25.0;
 /// BMI below which the forecast's path, or its steady state, raises `forecast_underweight`:
 /// the WHO cut-off for underweight (WHO 2000, Technical Report Series 894).
 const UNDERWEIGHT_BMI: f64 = 18.5;
@@ -1089,6 +1095,8 @@ struct Forecast {
     falls_further: Option<(NaiveDate, f64)>,
     /// The weight at BMI 16 ([`MIN_STEADY_STATE_BMI`]), kg: a flag names no weight below it.
     severe_kg: f64,
+    /// The current weight is below BMI 25 ([`OVERWEIGHT_BMI`]): loss is no goal now.
+    healthy_now: bool,
 }
 
 /// Forecast to the program end (never shorter than `forecast_min_days`: in a program's last
@@ -1233,13 +1241,14 @@ fn forecast(
         underweight,
         falls_further,
         severe_kg: min_kg,
+        healthy_now: cur.bw < OVERWEIGHT_BMI * h_m * h_m,
     }
 }
 
 /// The flag for a forecast that heads below BMI 18.5 ([`Forecast::underweight`]): clinical when
-/// the path crosses within the horizon or the steady state lies below BMI 16 (WHO severe
-/// thinness: the implied intake is far below what the person's body needs at any healthy
-/// weight), a notice when only the steady state lies below 18.5. Like the forecast, a flag
+/// the path crosses within the horizon, or when the steady state lies below BMI 16 (WHO severe
+/// thinness: the implied intake is far below what the body needs at any healthy weight) for
+/// someone of normal weight now (below BMI 25), a notice otherwise. Like the forecast, a flag
 /// names no weight below BMI 16: the model is not one of starvation ("settle at about 29 kg"
 /// was printed for a woman of 1.65 m).
 fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
@@ -1271,11 +1280,15 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     {
         out.push_flag(
             EnergyFlag::ForecastUnderweight.as_str(),
-            FlagSeverity::Clinical,
+            if fc.healthy_now {
+                FlagSeverity::Clinical
+            } else {
+                FlagSeverity::Notice
+            },
             "If eating goes on as over the last weeks, the model expects weight to keep \
              falling, past the underweight range (WHO: a BMI below 18.5) into severe thinness \
-             (a BMI below 16), where this model no longer applies. Losing more is not a goal; \
-             please review this with a licensed clinician."
+             (a BMI below 16), where this model no longer applies. Losing into that range is \
+             not a goal; please review this with a licensed clinician."
                 .to_string(),
         );
         return;

@@ -1048,6 +1048,14 @@ fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
     assert_eq!(severity, FlagSeverity::Clinical, "{message}");
     assert!(message.contains("a BMI below 16"), "{message}");
     assert!(!message.contains(" kg"), "{message}");
+    // The same resting weight for someone still obese: a usual diet held for ever ends there,
+    // and the path is far from BMI 18.5, so it stays a notice (naming no weight below BMI 16).
+    let out = run_with(105.0, 1.0);
+    let (severity, message) = flag(&out).expect("flagged");
+    assert_eq!(out.scalar("steady_state_weight_kg"), None, "{message}");
+    assert_eq!(severity, FlagSeverity::Notice, "{message}");
+    assert!(message.contains("a BMI below 16"), "{message}");
+    assert!(!message.contains(" kg"), "{message}");
     // Already at BMI 16.9 (46 kg) and losing 0.4 kg a week: the path goes below BMI 16
     // (43.6 kg), and the flag says so without a weight there.
     let out = run_with(50.0, 0.4);
