@@ -50,7 +50,8 @@ const PREGNANCY_FLAG: &str = "pregnant";
 const BETA: f64 = BETA_TEF + BETA_AT;
 /// z quantile of the standard normal for a two-sided 95 % interval.
 const Z_95: f64 = 1.959_963_984_540_054;
-/// Logged days needed for a mean logged intake.
+/// Logged days needed for a mean logged intake (program choice, as the outcomes module's
+/// `MIN_INTAKE_DAYS`).
 const MIN_LOGGED_DAYS: usize = 4;
 /// Gap beyond which (whole 95 % interval) logs are called inconsistent with the trend, kcal/d.
 const GAP_FLAG_KCAL: f64 = 300.0;
