@@ -2259,3 +2259,25 @@ fn a_template_of_ones_own_without_the_cautions_publishes_nothing() {
     let out = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html,pdf"]);
     assert_eq!(out.code, 0, "{}", out.stderr);
 }
+
+/// The group report's cautions too (de-identified, not medical advice; local rules and licensed
+/// practice first): a `group.html.hbs` of one's own without them stops the run (exit 6).
+#[test]
+fn a_group_template_of_ones_own_without_the_cautions_publishes_nothing() {
+    let prog = ProgramTest::fixture("report-small");
+    let dump = prog.run(&["templates", "dump", "{dir}/templates"]);
+    assert_eq!(dump.code, 0, "{}", dump.stderr);
+    let path = prog.dir.join("templates/group.html.hbs");
+    let text = std::fs::read_to_string(&path).unwrap();
+    std::fs::write(&path, text.replacen("{{> cautions}}", "", 1)).unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert_eq!(out.code, 6, "{}", out.stderr);
+    assert!(
+        out.stderr.contains("templates/group.html.hbs"),
+        "{}",
+        out.stderr
+    );
+    assert!(out.stderr.contains("not medical advice"), "{}", out.stderr);
+    assert!(!prog.dir.join("reports/group").exists());
+}
