@@ -19,7 +19,9 @@ pub struct TidyParticipant {
     pub enrolled: String,
     /// Day of withdrawal (profile.yaml), ISO 8601, when it is on or before the period's end.
     pub withdrew: Option<String>,
-    /// Has a baseline weight: counted in the group report's intention-to-treat denominator.
+    /// Has a baseline weight: counted in the group report's intention-to-treat denominator
+    /// (false when the group report leaves the participant out: their weigh-ins are another
+    /// folder's; set when the file is written).
     pub started: bool,
     /// Started and weighed in within the period's last 28 days: the group report has their
     /// weight at the period's end (a completer); without it, its primary analysis (BOCF)
@@ -525,7 +527,7 @@ pub fn datapackage(
         DpField::required(
             "started",
             "boolean",
-            "has a baseline weight (a weigh-in on or after enrolment): counted in the group report's intention-to-treat denominator",
+            "has a baseline weight (a weigh-in on or after enrolment): counted in the group report's intention-to-treat denominator (false for a participant the group report leaves out because their weigh-ins are another participant folder's; see data-quality.csv)",
         ),
         DpField::required(
             "completer",

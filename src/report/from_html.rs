@@ -538,6 +538,52 @@ impl Converter<'_> {
     }
 }
 
+/// The text a reader sees both on screen and in the PDF: the page's text outside comments,
+/// `<head>` and the other elements with no content for a reader, content for one medium only
+/// (`screen-only`, `print-only`, the narrow chart), and content hidden by `hidden`,
+/// `aria-hidden="true"` or an inline `display: none` / `visibility: hidden`. White space is
+/// collapsed to single spaces. (A style sheet of a template's own can still hide an element
+/// by its class; that is not seen here.)
+pub fn shown_text(html: &str) -> String {
+    fn walk(n: NodeRef<'_, Node>, out: &mut String) {
+        match n.value() {
+            Node::Text(t) => {
+                out.push_str(t);
+                out.push(' ');
+            }
+            Node::Element(el) => {
+                let e = ElementRef::wrap(n).expect("element");
+                let style = el
+                    .attr("style")
+                    .unwrap_or("")
+                    .to_ascii_lowercase()
+                    .replace(char::is_whitespace, "");
+                if IGNORED.contains(&el.name())
+                    || el.name() == "script"
+                    || skipped(e)
+                    || has_class(e, &["print-only"])
+                    || style.contains("display:none")
+                    || style.contains("visibility:hidden")
+                {
+                    return;
+                }
+                for c in n.children() {
+                    walk(c, out);
+                }
+            }
+            _ => {
+                for c in n.children() {
+                    walk(c, out);
+                }
+            }
+        }
+    }
+    let doc = Html::parse_document(html);
+    let mut out = String::new();
+    walk(doc.tree.root(), &mut out);
+    out.split_whitespace().collect::<Vec<_>>().join(" ")
+}
+
 /// Left out of the PDF: screen-only content, hidden content.
 fn skipped(e: ElementRef<'_>) -> bool {
     has_class(e, SCREEN_ONLY) || e.attr("hidden").is_some() || e.attr("aria-hidden") == Some("true")

@@ -10,6 +10,7 @@
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
 //! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
+//! | 3a | the same at a BMI below `low_bmi_losing_below` (20; from age 70 the higher `low_bmi_losing_below_70_plus`, 22) | `maintain` | that a rise at that BMI is no cause for concern; nothing to stop it |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least` (from age 70 below `loss_bmi_at_least_70_plus`, default 30), or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
 //! | 5a | otherwise, too few recent weigh-ins for a trend | `too_little_data` | as row 4 |
@@ -286,6 +287,11 @@ pub enum MaintainWhy {
     BmiBelowCutoff,
     /// The target is not a loss.
     NoLossTarget,
+    /// The weight is going up at a BMI below the `outcomes` module's `low_bmi_losing_below`
+    /// (20; from age 70 `low_bmi_losing_below_70_plus`, 22): no regain to stop. A rise there is
+    /// a gain towards or within the healthy range (MUST scores BMI 18.5–20 as a risk, BAPEN
+    /// 2003; GLIM 2019 takes 22 from age 70), so nothing suggests eating less or doing more.
+    LowBmiRising,
 }
 
 /// The row of the decision table that applies.
@@ -349,6 +355,15 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
             && (s.still_rising
                 || matches!(s.status, TrendStatus::Insufficient | TrendStatus::Unclear)))
     {
+        // Below the low-BMI cut a rise is no regain to stop (see `MaintainWhy::LowBmiRising`).
+        let low_cut = if s.older {
+            t.low_bmi_losing_below.max(t.low_bmi_losing_below_70_plus)
+        } else {
+            t.low_bmi_losing_below
+        };
+        if s.bmi.is_some_and(|b| b < low_cut) {
+            return Phase::Maintain(MaintainWhy::LowBmiRising);
+        }
         return Phase::Regain;
     }
     let (Some(bmi), Some(change)) = (s.bmi, s.change_percent) else {
@@ -973,7 +988,9 @@ fn maintain(
     let lost = change <= -1.0;
     let mut g = empty(
         Phase::Maintain(why),
-        if lost {
+        if why == MaintainWhy::LowBmiRising {
+            "Your weight going up"
+        } else if lost {
             "Holding your new weight"
         } else {
             "Holding your weight"
@@ -1021,6 +1038,22 @@ fn maintain(
         ),
         MaintainWhy::NoLossTarget => {
             "Your target is to hold your weight, so this report does not suggest losing any.".into()
+        }
+        MaintainWhy::LowBmiRising => {
+            let rate = f
+                .slope
+                .filter(|s| s.value > 0.0)
+                .map(|s| format!(" (about {})", rate_words(s.value, f.units)))
+                .unwrap_or_default();
+            g.paragraphs.push(format!(
+                "Your weight has been going up{rate}. At your BMI, {}, that is no cause for concern, so this report does not suggest eating less or being more active to stop it. If the change is not what you expected, the program staff can help you talk it over.",
+                state.bmi.map_or_else(String::new, |b| format!("{} kg/m²", fmt::fixed(b, 1)))
+            ));
+            g.paragraphs.push(format!(
+                "Staying active — your program target is {} minutes a week — is good for your health at any weight.",
+                fmt::fixed(f.activity_target, 0)
+            ));
+            return g;
         }
     });
     let losing = state.status == TrendStatus::Losing;
@@ -1313,6 +1346,40 @@ mod tests {
             (
                 "regaining past target",
                 with(&|s| s.change_percent = Some(-8.0), Regaining),
+                Phase::Regain,
+            ),
+            // A rise at a low BMI is no regain to stop: a woman who enrolled at BMI 17.8 and was
+            // back at 19.0 was told to eat 150 kcal a day less or walk 55 minutes more.
+            (
+                "rising below BMI 20",
+                with(&|s| s.bmi = Some(19.0), Regaining),
+                Phase::Maintain(LowBmiRising),
+            ),
+            (
+                "rise confirmed by level below BMI 20",
+                with(
+                    &|s| {
+                        s.bmi = Some(19.4);
+                        s.regained = true;
+                    },
+                    Unclear,
+                ),
+                Phase::Maintain(LowBmiRising),
+            ),
+            (
+                "rising below BMI 22 from age 70",
+                with(
+                    &|s| {
+                        s.bmi = Some(21.5);
+                        s.older = true;
+                    },
+                    Regaining,
+                ),
+                Phase::Maintain(LowBmiRising),
+            ),
+            (
+                "rising at BMI 20",
+                with(&|s| s.bmi = Some(20.0), Regaining),
                 Phase::Regain,
             ),
             (
@@ -1979,6 +2046,27 @@ mod tests {
         s.still_rising = true;
         s.regained = false;
         assert_eq!(decide(&s, &t), Phase::RestartLoss);
+    }
+
+    #[test]
+    fn a_rise_at_a_low_bmi_is_not_met_with_eating_less() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.balance = Some(Est {
+            value: 260.0,
+            lower: Some(100.0),
+            upper: Some(420.0),
+        });
+        let mut s = st(Regaining);
+        s.bmi = Some(19.0);
+        s.change_percent = Some(6.7);
+        let phase = decide(&s, &t);
+        let g = compose(phase, &s, &t, &f);
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        let text = g.paragraphs.join(" ");
+        assert!(text.contains("no cause for concern"), "{text}");
+        assert!(!text.contains("kcal"), "{text}");
+        assert_ne!(g.heading, "Holding your weight");
     }
 
     #[test]

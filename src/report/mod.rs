@@ -316,6 +316,37 @@ pub fn pdf_unshowable_text(report: &ParticipantReport) -> Vec<char> {
     serde_json::to_string(&ctx).map_or_else(|_| Vec::new(), |j| crate::render::pdf_unshowable(&j))
 }
 
+/// With templates of the program's own, a page must show each of `cautions` (the built-in
+/// templates always print them with `{{> cautions}}`): in text a reader sees both on screen and
+/// in the PDF ([`from_html::shown_text`]). A participant report without "not medical advice" and
+/// "your own licensed clinician come first" is not published: the run stops, naming the template
+/// and the first caution missing.
+fn check_cautions(
+    templates: &TemplateSet,
+    name: &str,
+    html: &str,
+    cautions: &[String],
+) -> Result<(), RenderError> {
+    if !templates.is_overridden() {
+        return Ok(());
+    }
+    let shown = from_html::shown_text(html);
+    let missing = cautions.iter().find(|c| {
+        let want = crate::render::neutralise(c);
+        !shown.contains(&want.split_whitespace().collect::<Vec<_>>().join(" "))
+    });
+    match missing {
+        None => Ok(()),
+        Some(c) => Err(RenderError::Template(format!(
+            "the page made from {} does not show the cautions every report of this kind \
+             carries, on screen and in the PDF alike; missing: \"{c}\" (print them with \
+             {{{{> cautions}}}}, outside comments and outside anything hidden or shown in one \
+             medium only); nothing was published",
+            templates.source_of(name)
+        ))),
+    }
+}
+
 /// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes). The PDF
 /// is laid out from the HTML, so both always say the same.
 pub fn render_participant(
@@ -350,6 +381,9 @@ pub fn render_participant(
     } else {
         (templates.render("participant.html", c, svgs)?, None)
     };
+    for page in std::iter::once(&html).chain(pdf_html.as_ref()) {
+        check_cautions(templates, "participant.html", page, &c.cautions)?;
+    }
     let pdf_html = if formats.contains(&Format::Pdf) {
         pdf_source(pdf_html.as_deref().unwrap_or(&html), &drawn)
     } else {
@@ -393,6 +427,7 @@ pub fn render_group(
     let drawn = draw_all(&charts);
     let html = templates.render("group.html", &report.ctx, svg_map(&drawn))?;
     let c = &report.ctx;
+    check_cautions(templates, "group.html", &html, &c.cautions)?;
     let mut out = Vec::new();
     for f in formats {
         match f {

@@ -153,6 +153,11 @@ impl TemplateSet {
         })
     }
 
+    /// True when a template of the program's own replaces or adds to the built-in set.
+    pub fn is_overridden(&self) -> bool {
+        self.overridden
+    }
+
     /// Where template `name` (e.g. `participant.html`) comes from, for messages:
     /// `participant.html.hbs (built-in)` or the override's path.
     pub fn source_of(&self, name: &str) -> String {

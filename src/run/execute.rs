@@ -825,7 +825,20 @@ fn write_tidy(
             .map_err(|e| e.to_string())?;
         let rec = ParticipantRecord::from_bytes(&bytes)
             .ok_or_else(|| format!("cache/{id}.json: unreadable partial result"))?;
-        Ok(rec.tidy.map(TidyRecord::into_tidy))
+        // Weigh-ins that are another folder's leave the participant out of the group report
+        // (`excluded` in `tally`), so the tidy row does not count them as started
+        // or as a completer either: the columns say what the group report counts.
+        let copy = rec
+            .diagnostics()
+            .iter()
+            .any(participant::is_copy_of_another);
+        Ok(rec.tidy.map(TidyRecord::into_tidy).map(|mut t| {
+            if copy {
+                t.started = false;
+                t.completer = false;
+            }
+            t
+        }))
     };
     tidy::render(
         plan.period,

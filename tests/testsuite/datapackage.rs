@@ -391,4 +391,40 @@ fn counts_are_integers_in_the_descriptor_the_csv_and_the_json() {
         }
     }
     assert!(seen > 40, "{seen}");
+
+/// A participant whose weigh-ins are another folder's (one person enrolled twice, a folder
+/// copied) is left out of the group report, so `participants.csv` must not count them as started
+/// or as a completer: the column says "counted in the group report's intention-to-treat
+/// denominator", and an analyst repeating its figures from the file counted two people more.
+#[test]
+fn participants_csv_does_not_count_a_folder_the_group_report_leaves_out() {
+    let t = crate::harness::ProgramTest::sample();
+    std::fs::copy(
+        t.dir.join("participants/SG-001/weights.csv"),
+        t.dir.join("participants/SG-002/weights.csv"),
+    )
+    .unwrap();
+    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    assert!(
+        out.stderr.contains("left out of the group report"),
+        "{}",
+        out.stderr
+    );
+    let metrics = t.dir.join("reports/metrics");
+    let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
+    let (id, started, completer) = (col("participant_id"), col("started"), col("completer"));
+    let rows: Vec<csv::StringRecord> = r.records().map(Result::unwrap).collect();
+    for pid in ["SG-001", "SG-002"] {
+        let x = rows.iter().find(|x| &x[id] == pid).unwrap();
+        assert_eq!((&x[started], &x[completer]), ("false", "false"), "{pid}");
+    }
+    let group: Value =
+        serde_json::from_str(&std::fs::read_to_string(metrics.join("group.json")).unwrap())
+            .unwrap();
+    let n = group["program"]["stats"]["weight_change"]["bocf"]["n"]["value"].clone();
+    let started_n = rows.iter().filter(|x| &x[started] == "true").count() as u64;
+    assert_eq!(n, started_n);
 }

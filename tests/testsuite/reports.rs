@@ -2194,3 +2194,90 @@ fn a_scale_put_back_is_described_stretch_by_stretch() {
     // The return is a new step in September: for the clinician.
     assert_eq!(m["clinical_flags"], "weigh_in_step");
 }
+
+/// Every participant report carries the cautions (not medical advice; local rules and the
+/// participant's own licensed clinician come first), in the HTML and the PDF, whatever template
+/// made it. A program's own `participant.html.hbs` without `{{> cautions}}` (or with them only
+/// in a part of the page one medium leaves out, or in a comment) published reports without
+/// them: the run now stops (exit 6) naming the template and the missing caution, and nothing is
+/// published. A page that prints them, in any markup, still runs.
+#[test]
+fn a_template_of_ones_own_without_the_cautions_publishes_nothing() {
+    for (what, from, to) in [
+        ("left out", "{{> cautions}}", ""),
+        (
+            "only on screen",
+            "{{> cautions}}",
+            "<div class=\"screen-only\">{{> cautions}}</div>",
+        ),
+        ("in a comment", "{{> cautions}}", "<!-- {{> cautions}} -->"),
+        (
+            "hidden",
+            "{{> cautions}}",
+            "<div hidden>{{> cautions}}</div>",
+        ),
+    ] {
+        let prog = ProgramTest::fixture("report-small");
+        let dump = prog.run(&["templates", "dump", "{dir}/templates"]);
+        assert_eq!(dump.code, 0, "{}", dump.stderr);
+        let path = prog.dir.join("templates/participant.html.hbs");
+        let text = std::fs::read_to_string(&path).unwrap();
+        assert!(text.contains(from), "{what}");
+        std::fs::write(&path, text.replacen(from, to, 1)).unwrap();
+        use_template_folder(&prog);
+        let out = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html,pdf"]);
+        assert_eq!(out.code, 6, "{what}: {}", out.stderr);
+        assert!(out.stderr.contains("caution"), "{what}: {}", out.stderr);
+        assert!(
+            out.stderr.contains("not medical advice"),
+            "{what}: {}",
+            out.stderr
+        );
+        assert!(
+            out.stderr.contains("templates/participant.html.hbs"),
+            "{what}: {}",
+            out.stderr
+        );
+        assert!(!prog.dir.join("reports/participants").exists(), "{what}");
+    }
+    // The cautions written out in a list of one's own, without the partial, are enough.
+    let prog = ProgramTest::fixture("report-small");
+    let dump = prog.run(&["templates", "dump", "{dir}/templates"]);
+    assert_eq!(dump.code, 0, "{}", dump.stderr);
+    let path = prog.dir.join("templates/participant.html.hbs");
+    let text = std::fs::read_to_string(&path).unwrap();
+    std::fs::write(
+        &path,
+        text.replacen(
+            "{{> cautions}}",
+            "<h2>Before you act</h2><ol>{{#each cautions}}<li><b>{{this}}</b></li>{{/each}}</ol>",
+            1,
+        ),
+    )
+    .unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html,pdf"]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+}
+
+/// The group report's cautions too (de-identified, not medical advice; local rules and licensed
+/// practice first): a `group.html.hbs` of one's own without them stops the run (exit 6).
+#[test]
+fn a_group_template_of_ones_own_without_the_cautions_publishes_nothing() {
+    let prog = ProgramTest::fixture("report-small");
+    let dump = prog.run(&["templates", "dump", "{dir}/templates"]);
+    assert_eq!(dump.code, 0, "{}", dump.stderr);
+    let path = prog.dir.join("templates/group.html.hbs");
+    let text = std::fs::read_to_string(&path).unwrap();
+    std::fs::write(&path, text.replacen("{{> cautions}}", "", 1)).unwrap();
+    use_template_folder(&prog);
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert_eq!(out.code, 6, "{}", out.stderr);
+    assert!(
+        out.stderr.contains("templates/group.html.hbs"),
+        "{}",
+        out.stderr
+    );
+    assert!(out.stderr.contains("not medical advice"), "{}", out.stderr);
+    assert!(!prog.dir.join("reports/group").exists());
+}

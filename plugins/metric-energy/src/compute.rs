@@ -50,7 +50,8 @@ const PREGNANCY_FLAG: &str = "pregnant";
 const BETA: f64 = BETA_TEF + BETA_AT;
 /// z quantile of the standard normal for a two-sided 95 % interval.
 const Z_95: f64 = 1.959_963_984_540_054;
-/// Logged days needed for a mean logged intake.
+/// Logged days needed for a mean logged intake (program choice, as the outcomes module's
+/// `MIN_INTAKE_DAYS`).
 const MIN_LOGGED_DAYS: usize = 4;
 /// Gap beyond which (whole 95 % interval) logs are called inconsistent with the trend, kcal/d.
 const GAP_FLAG_KCAL: f64 = 300.0;
@@ -126,6 +127,12 @@ const MIN_STEADY_STATE_BMI: f64 = 16.0;
 /// whose forecast went on down to 16.
 const FALLS_FURTHER_KG: f64 = 1.0;
 
+/// BMI from which WHO calls a weight overweight (pre-obese), below it normal (18.5–24.9; WHO
+/// 2000, Technical Report Series 894): a steady state below BMI 16 is a clinical flag only for
+/// someone below it now. For someone heavier, an intake that would end there if held for ever
+/// is a usual weight-loss diet (1,200–1,500 kcal/d for women, 1,500–1,800 for men, AHA/ACC/TOS
+/// 2013; from memory), and the forecast's path is what tells when it goes too far.
+const OVERWEIGHT_BMI: f64 = 25.0;
 /// BMI below which the forecast's path, or its steady state, raises `forecast_underweight`:
 /// the WHO cut-off for underweight (WHO 2000, Technical Report Series 894).
 const UNDERWEIGHT_BMI: f64 = 18.5;
@@ -1087,6 +1094,10 @@ struct Forecast {
     /// lies at least [`FALLS_FURTHER_KG`] below the current weight (also computed before a path
     /// below BMI 16 is withheld).
     falls_further: Option<(NaiveDate, f64)>,
+    /// The weight at BMI 16 ([`MIN_STEADY_STATE_BMI`]), kg: a flag names no weight below it.
+    severe_kg: f64,
+    /// The current weight is below BMI 25 ([`OVERWEIGHT_BMI`]): loss is no goal now.
+    healthy_now: bool,
 }
 
 /// Forecast to the program end (never shorter than `forecast_min_days`: in a program's last
@@ -1230,21 +1241,32 @@ fn forecast(
         steady,
         underweight,
         falls_further,
+        severe_kg: min_kg,
+        healthy_now: cur.bw < OVERWEIGHT_BMI * h_m * h_m,
     }
 }
 
 /// The flag for a forecast that heads below BMI 18.5 ([`Forecast::underweight`]): clinical when
-/// the path crosses within the horizon, a notice when only the steady state lies below.
+/// the path crosses within the horizon, or when the steady state lies below BMI 16 (WHO severe
+/// thinness: the implied intake is far below what the body needs at any healthy weight) for
+/// someone of normal weight now (below BMI 25), a notice otherwise. Like the forecast, a flag
+/// names no weight below BMI 16: the model is not one of starvation ("settle at about 29 kg"
+/// was printed for a woman of 1.65 m).
 fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     if let Some((date, low)) = fc.falls_further {
+        let to = if low < fc.severe_kg {
+            "into severe thinness (a BMI below 16), where this model no longer applies,".into()
+        } else {
+            format!("to about {low:.0} kg")
+        };
         out.push_flag(
             EnergyFlag::ForecastUnderweight.as_str(),
             FlagSeverity::Clinical,
             format!(
                 "Weight is already in the underweight range (WHO: a BMI below 18.5), and if \
-                 eating goes on as over the last weeks the model expects it to fall further, to \
-                 about {low:.0} kg around {}. Losing more is not a goal at that weight; please \
-                 review this with a licensed clinician.",
+                 eating goes on as over the last weeks the model expects it to fall further, \
+                 {to} around {}. Losing more is not a goal at that weight; please review this \
+                 with a licensed clinician.",
                 date.format("%-d %B %Y")
             ),
         );
@@ -1253,6 +1275,25 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     let Some((crosses, rest)) = fc.underweight else {
         return;
     };
+    if crosses.is_none()
+        && let Some(w) = rest
+        && w < fc.severe_kg
+    {
+        out.push_flag(
+            EnergyFlag::ForecastUnderweight.as_str(),
+            if fc.healthy_now {
+                FlagSeverity::Clinical
+            } else {
+                FlagSeverity::Notice
+            },
+            "If eating goes on as over the last weeks, the model expects weight to keep \
+             falling, past the underweight range (WHO: a BMI below 18.5) into severe thinness \
+             (a BMI below 16), where this model no longer applies. Losing into that range is \
+             not a goal; please review this with a licensed clinician."
+                .to_string(),
+        );
+        return;
+    }
     let rest_words = |w: f64| format!("to settle at about {w:.0} kg");
     let (severity, what) = match (crosses, rest) {
         (Some(d), _) => (
@@ -1633,11 +1674,25 @@ fn options_table(
         let cut = (imp.lower.unwrap_or(imp.value) - floor).max(0.0);
         let rest_kcal = (-d_ei - cut).max(0.0);
         let rest_minutes = (1.0 - BETA) * rest_kcal / kcal_per_min;
+        // The intake it leads to, and the floor where it belongs: at the estimate's low end
+        // ("down to 1500" beside a resulting intake of 2505 read as "eat 1500 kcal a day").
+        let low = imp.lower.unwrap_or(imp.value);
+        let to = if low > floor {
+            format!(
+                "to about {:.0} kcal a day, {floor:.0} at the low end of the estimate",
+                imp.value - cut
+            )
+        } else {
+            format!(
+                "none: the low end of the estimate, {low:.0} kcal a day, is already at or below \
+                 {floor:.0}"
+            )
+        };
         let (feasible, reason) = if rest_minutes > MAX_WALK_MIN {
             (
                 false,
                 format!(
-                    "Even with intake at {floor:.0} kcal a day it would take about \
+                    "Even eating about {cut:.0} kcal a day less ({to}), it would take about \
                      {rest_minutes:.0} minutes of walking a day; a slower target rate is more \
                      realistic."
                 ),
@@ -1646,7 +1701,7 @@ fn options_table(
             (
                 true,
                 format!(
-                    "Eating about {cut:.0} kcal a day less (down to {floor:.0}) and walking about \
+                    "Eating about {cut:.0} kcal a day less ({to}) and walking about \
                      {rest_minutes:.0} minutes more a day together restore a loss of {:.2} \
                      kg/week.",
                     s.target_loss

@@ -121,8 +121,9 @@ code_enum! {
         /// than eating nothing explains (for a clinician).
         VeryLowImpliedIntake = "very_low_implied_intake" => "Weight trend implies a very low intake, or an unexplained fast loss",
         /// At the intake the weight trend implies, the model takes weight below BMI 18.5 (WHO
-        /// underweight) within the forecast horizon, or comes to rest there (for a clinician
-        /// when within the horizon).
+        /// underweight) within the forecast horizon, or comes to rest there, or, for someone
+        /// underweight now, 1 kg or more further (for a clinician, except a resting weight
+        /// between BMI 16 and 18.5 beyond the horizon, a notice).
         ForecastUnderweight = "forecast_underweight" => "At the current intake, weight heads below a BMI of 18.5, or further below it",
         /// Left the program before the period began: the period's energy figures are not estimated.
         LeftBeforePeriod = "left_before_period" => "Left before the period: its energy figures not estimated",

@@ -108,7 +108,8 @@ pub const TREND_MODULE: &str = "trend";
 /// Weight-loss milestones, % of baseline weight.
 pub const MILESTONES_PERCENT: [f64; 4] = [3.0, 5.0, 7.0, 10.0];
 
-/// Fewest logged intake days in the period before the intake flags are considered.
+/// Fewest logged intake days in the period before the intake flags are considered (program
+/// choice: fewer days say too little about usual intake to put before a clinician).
 pub const MIN_INTAKE_DAYS: usize = 4;
 
 /// The energy module's id and its flag for an implied intake below a very-low-calorie diet's

@@ -437,6 +437,18 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
         cell_text(opt, 2, "feasible"),
         if combined > 120.0 { "no" } else { "yes" }
     );
+    // Its words give the intake it leads to, not the floor as if it were that intake: "(down
+    // to 1200)" beside a resulting intake far above 1200 read as "eat 1200 kcal a day".
+    let reason = cell_text(opt, 2, "reason");
+    assert!(
+        reason.contains(&format!("to about {:.0} kcal a day", imp - cut)),
+        "{reason}"
+    );
+    assert!(
+        reason.contains("1200 at the low end of the estimate"),
+        "{reason}"
+    );
+    assert!(!reason.contains("down to 1200"), "{reason}");
 
     // A target above the safe maximum is refused whatever the numbers.
     c.settings = EnergyModule
@@ -1023,6 +1035,38 @@ fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
     assert!(message.contains("fall further"), "{message}");
     // The same weight held steady raises nothing.
     assert_eq!(flag(&run_with(48.0, 0.0)), None);
+    // 70 kg (BMI 25.7) losing 0.7 kg a week: about 61 kg (BMI 22.5) at the period's end, and
+    // the path to 30 June stays above BMI 18.5, but the weight the implied intake comes to rest
+    // at lies below BMI 16 (43.6 kg), severe thinness (WHO). That was a notice naming a weight
+    // the model does not describe ("to settle at about 34 kg"); it is for a clinician, and
+    // names no such weight.
+    let out = run_with(70.0, 0.7);
+    let end = out.scalar("forecast_weight_at_end_kg").unwrap();
+    assert!(end > 18.5 * 1.65 * 1.65, "{end}");
+    assert_eq!(out.scalar("steady_state_weight_kg"), None);
+    let (severity, message) = flag(&out).expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical, "{message}");
+    assert!(message.contains("a BMI below 16"), "{message}");
+    assert!(!message.contains(" kg"), "{message}");
+    // The same resting weight for someone still obese: a usual diet held for ever ends there,
+    // and the path is far from BMI 18.5, so it stays a notice (naming no weight below BMI 16).
+    let out = run_with(105.0, 1.0);
+    let (severity, message) = flag(&out).expect("flagged");
+    assert_eq!(out.scalar("steady_state_weight_kg"), None, "{message}");
+    assert_eq!(severity, FlagSeverity::Notice, "{message}");
+    assert!(message.contains("a BMI below 16"), "{message}");
+    assert!(!message.contains(" kg"), "{message}");
+    // Already at BMI 16.9 (46 kg) and losing 0.4 kg a week: the path goes below BMI 16
+    // (43.6 kg), and the flag says so without a weight there.
+    let out = run_with(50.0, 0.4);
+    let (severity, message) = flag(&out).expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical, "{message}");
+    assert!(
+        message.contains("already in the underweight range"),
+        "{message}"
+    );
+    assert!(message.contains("severe thinness"), "{message}");
+    assert!(!message.contains(" kg"), "{message}");
 }
 
 /// In a first fortnight (no two-week block of logs and trend for the person's own share yet) the share missing from
