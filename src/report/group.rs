@@ -158,6 +158,37 @@ fn with_aside(value: String, aside: String) -> String {
     }
 }
 
+/// Why the distribution is not drawn, and how its hidden bands are printed: as the ranges the
+/// rest of the report implies, or "not shown" where none is printed. A re-issued month said
+/// every hidden band was "given below as the ranges …" above a table of "not shown (privacy)",
+/// and that the bands "hold too few people", which a band hidden to protect another need not.
+fn hidden_bands_note<'a>(bands: impl Iterator<Item = &'a Shown<u64>>) -> String {
+    let (mut total, mut ranged, mut hidden) = (0, 0, 0);
+    for b in bands {
+        total += 1;
+        match b {
+            Shown::Value(_) => {}
+            Shown::Range { .. } => ranged += 1,
+            _ => hidden += 1,
+        }
+    }
+    let how = match (ranged, hidden) {
+        (_, 0) => "their counts are given below as the ranges the rest of this report already \
+                   implies"
+            .to_string(),
+        (0, _) => format!("their counts are {HIDDEN} below"),
+        _ => format!(
+            "{ranged} of them are given below as the ranges the rest of this report already \
+             implies, and {hidden} as {HIDDEN}"
+        ),
+    };
+    format!(
+        "Not drawn as a chart: {} of the {total} bands cannot be shown exactly (too few people, \
+         or a count from which a small one could be worked out), so {how}.",
+        ranged + hidden
+    )
+}
+
 /// `median (n)`, or plain words when nobody had data (no sessions offered in the period, say).
 fn median_with_n(median: String, n: &Shown<u64>) -> String {
     match n {
@@ -516,10 +547,8 @@ fn fill(
             // Whom the bands count is said here too: without it a sponsor cannot tell the
             // table from a completers' distribution.
             alt: format!(
-                "{hist_alt} Not drawn as a chart: {hidden_bins} of the {} bands hold too few \
-                 people to show exactly, so their counts are given below as the ranges the rest \
-                 of this report already implies.",
-                st.histogram.bins.len()
+                "{hist_alt} {}",
+                hidden_bands_note(st.histogram.bins.iter().map(|b| &b.count))
             ),
             table: hist_table,
         });
@@ -678,6 +707,25 @@ mod hidden_twice_tests {
     /// sponsor's report read "not shown (privacy) (not shown (privacy))" in the adherence
     /// table and the month-over-month table, and "0 of not shown (privacy) with enough data:
     /// not shown (privacy)" for the plateau.
+    #[test]
+    fn the_undrawn_distribution_says_how_its_hidden_bands_are_printed() {
+        let bands = [
+            Shown::Value(0),
+            Shown::Suppressed,
+            Shown::Value(0),
+            Shown::Suppressed,
+        ];
+        let note = super::hidden_bands_note(bands.iter());
+        assert!(!note.contains("ranges"), "{note}");
+        assert!(note.contains("2 of the 4 bands"), "{note}");
+        assert!(note.contains(HIDDEN), "{note}");
+        let bands = [Shown::Range { lo: 0, hi: 4 }, Shown::Value(0)];
+        let note = super::hidden_bands_note(bands.iter());
+        assert!(note.contains("1 of the 2 bands"), "{note}");
+        assert!(note.contains("as the ranges"), "{note}");
+        assert!(!note.contains(HIDDEN), "{note}");
+    }
+
     #[test]
     fn a_hidden_figure_with_a_hidden_aside_is_said_once() {
         assert_eq!(median_with_n(HIDDEN.into(), &Shown::Suppressed), HIDDEN);
