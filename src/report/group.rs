@@ -211,12 +211,12 @@ fn plateau_cell(p: &Plateau) -> String {
         ),
         // A hidden count hides its share and interval too: say it once.
         (_, Shown::Value(n)) => format!("{} (of {n} with enough data)", count(&p.in_plateau)),
-        (Shown::Suppressed, _) => HIDDEN.into(),
-        (_, Shown::Range { .. }) => format!(
-            "{} (of {} with enough data)",
+        (Shown::Value(_), Shown::Range { .. }) => format!(
+            "{} of {} with enough data",
             count(&p.in_plateau),
             count(&p.with_verdict)
         ),
+        (_, Shown::Range { .. }) | (Shown::Suppressed, _) => count(&p.in_plateau),
         _ => format!(
             "{} (the number with enough data: {HIDDEN})",
             count(&p.in_plateau)
