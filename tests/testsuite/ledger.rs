@@ -1068,4 +1068,12 @@ fn the_audit_notes_name_each_hidden_count_as_the_report_shows_it() {
         }
     }
     assert!(checked >= 3, "{notes:?}");
+    // The page's footer states the rule in numbers a reader can take in: it read "no count
+    // from 1 to 3 − 1 is printed exactly".
+    let html = std::fs::read_to_string(t.dir.join("out-2026-09/group/program.html")).unwrap();
+    assert!(
+        html.contains("no count above 0 and below 3 is printed exactly"),
+        "the footer's rule"
+    );
+    assert!(!html.contains("3 − 1"));
 }
