@@ -478,6 +478,27 @@ impl Kind {
         }
     }
 
+    /// The count as the audit notes name it to the report's reader. `name` stays the key of
+    /// the figure's family across releases (earlier ledgers hold it), and for the adherence
+    /// counts it was "with adherence measure 2", which no reader of the report could place.
+    fn label(self) -> String {
+        match self {
+            Kind::AdherenceN(i) => format!(
+                "the n of {}",
+                [
+                    "activity minutes per week",
+                    "days with a weigh-in per week",
+                    "food-log days per week",
+                    "session attendance",
+                ]
+                .get(i)
+                .copied()
+                .unwrap_or("an adherence measure")
+            ),
+            _ => self.name(),
+        }
+    }
+
     /// Complement choice rank: lower is hidden first, so that the denominators of the
     /// analyses (started, with outcome) survive whenever another cell can protect instead.
     fn priority(self) -> u8 {
@@ -970,6 +991,10 @@ pub(super) fn build(
         };
         link_nested_counts(&mut table, drafts_of(), enrolled.len(), min);
         let mut no_range: BTreeSet<CellId> = BTreeSet::new();
+        // The notes that say "Shown only as a range", with their cells: a count hidden against
+        // an earlier release can end with no range at all (hidden further, or its range
+        // dropped), and the note must then not say it is shown as one.
+        let mut ranged_notes: Vec<(usize, CellId)> = Vec::new();
         let mut budget = venn::Caps::default().max_solves;
         let mut gave_up: BTreeSet<String> = BTreeSet::new();
         loop {
@@ -1014,9 +1039,10 @@ pub(super) fn build(
                     {
                         table.force_hide(c);
                         changed = true;
+                        ranged_notes.push((audit_notes.len(), c));
                         audit_notes.push(AuditNote {
                             section: d.label.clone(),
-                            figure: k.name(),
+                            figure: k.label(),
                             rule: format!(
                                 "Shown only as a range, because subtracted from a count in an \
                                  earlier report it would give the number of fewer than {min} \
@@ -1098,9 +1124,10 @@ pub(super) fn build(
                                 table.force_hide(c);
                                 changed = true;
                                 let (section, k) = where_is[&c].clone();
+                                ranged_notes.push((audit_notes.len(), c));
                                 audit_notes.push(AuditNote {
                                     section,
-                                    figure: k.name(),
+                                    figure: k.label(),
                                     rule: format!(
                                         "Shown only as a range, because combined with counts in \
                                          earlier reports it would give the number of fewer than \
@@ -1115,7 +1142,7 @@ pub(super) fn build(
                                 let (section, k) = where_is[&c].clone();
                                 audit_notes.push(AuditNote {
                                     section,
-                                    figure: k.name(),
+                                    figure: k.label(),
                                     rule: format!(
                                         "Not shown, not even as a range, because combined with \
                                          counts in earlier reports the range would give the \
@@ -1146,7 +1173,7 @@ pub(super) fn build(
                             let (section, k) = where_is[&c].clone();
                             audit_notes.push(AuditNote {
                                 section,
-                                figure: k.name(),
+                                figure: k.label(),
                                 rule: format!(
                                     "Not shown: the audit against earlier reports stopped at \
                                      its work limit ({why}), and what it could not check is \
@@ -1159,6 +1186,14 @@ pub(super) fn build(
             }
             if !changed {
                 break;
+            }
+        }
+        for (i, c) in ranged_notes {
+            if ranges.get(c).copied().flatten().is_none() {
+                let rule = &mut audit_notes[i].rule;
+                if let Some(rest) = rule.strip_prefix("Shown only as a range, ") {
+                    *rule = format!("Not shown, {rest}");
+                }
             }
         }
         for d in drafts_of() {

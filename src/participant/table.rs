@@ -1640,21 +1640,35 @@ fn shorten(s: &str, max: usize) -> String {
 }
 
 /// Whether a header `key` (after [`header_key`]) that is none of ours may be one of ours
-/// misspelt: within two edits of a column name of four letters or more (one edit for shorter
-/// ones; `wieght`, `sorce`) or one edit of an alias, or holding a column name as a whole word
+/// misspelt: within two edits of a column name of five letters or more (`wieght`, `sorce`),
+/// of a four-letter one only when the letters are the same (`tiem`, `dtae`: two letters
+/// swapped), else one edit; or one edit of an alias, or holding a column name as a whole word
 /// (`weight_2`). Not an alias's word, nor two edits of one: `Fat mass (kg)` holds the alias
 /// `mass` of `weight`, and `Bone mass (kg)` is two edits from `body_mass`; both are other
-/// measurements.
+/// measurements. Two edits of four letters is half the word: a food diary's `Meal` (two from
+/// `kcal`) and a scale's `Note` (two from `date`) were warned about as ours misspelt, and every
+/// run on such a standard export ended "with warnings".
 fn near_ours(key: &str, spec: &FileSpec) -> bool {
     let words: Vec<&str> = key
         .split(|c: char| !c.is_alphanumeric())
         .filter(|w| !w.is_empty())
         .collect();
-    let within = |c: &str, limit: usize| crate::activities::edit_distance(key, c) <= limit;
+    let distance = |c: &str| crate::activities::edit_distance(key, c);
+    let same_letters = |c: &str| {
+        let sorted = |s: &str| {
+            let mut v: Vec<char> = s.chars().collect();
+            v.sort_unstable();
+            v
+        };
+        sorted(key) == sorted(c)
+    };
     spec.all_columns().any(|c| {
-        within(c, if c.chars().count() >= 4 { 2 } else { 1 })
+        let d = distance(c);
+        let letters = c.chars().count();
+        d <= 1
+            || (d == 2 && (letters >= 5 || (letters == 4 && same_letters(c))))
             || c.split('_').all(|part| words.contains(&part))
-    }) || spec.aliases.iter().any(|(a, _)| within(a, 1))
+    }) || spec.aliases.iter().any(|(a, _)| distance(a) <= 1)
 }
 
 fn column_list(spec: &FileSpec) -> String {
@@ -3100,6 +3114,41 @@ mod tests {
         let (t, d) = read("date,weight,unit,weight\n", &CsvOptions::default());
         assert!(t.is_none());
         assert!(d[0].message.contains("appears twice"));
+    }
+
+    #[test]
+    fn a_standard_exports_note_and_meal_columns_are_not_taken_for_ours_misspelt() {
+        // A scale's `Note` is two letters from `date`, a food diary's `Meal` two from `kcal`:
+        // half of a four-letter word, and each was warned about as ours misspelt, so every
+        // run on such an export ended "with warnings" (exit 1). Two letters swapped in a
+        // four-letter name (`tiem`) still are.
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let t = read_table(
+            "date,weight,unit,Note,tiem\n2026-04-01,72,kg,after gym,07:10\n",
+            &SPEC,
+            &CsvOptions::default(),
+            &ctx,
+            &mut d,
+        );
+        assert!(t.is_some());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].message, "extra column `tiem` is ignored");
+        let notes = ctx.take_notes();
+        assert_eq!(notes.len(), 1, "{notes:?}");
+        assert!(notes[0].message.contains("`Note`"), "{notes:?}");
+        let spec = crate::program::files::INTAKE;
+        let ctx = FileCtx::new("P1", "participants/P1/intake.csv");
+        let mut d = Vec::new();
+        let t = read_table(
+            "date,Meal,kcal\n2026-04-01,Lunch,610\n",
+            &spec,
+            &CsvOptions::default(),
+            &ctx,
+            &mut d,
+        );
+        assert!(t.is_some());
+        assert!(d.is_empty(), "{d:?}");
     }
 
     #[test]

@@ -516,14 +516,7 @@ impl Layout {
         if ncols == 0 {
             return;
         }
-        let rel: Vec<f32> =
-            if widths.len() == ncols && widths.iter().all(|w| w.is_finite() && *w > 0.0) {
-                widths.to_vec()
-            } else {
-                auto_widths(header, rows, ncols)
-            };
-        let total: f32 = rel.iter().sum();
-        let col_w: Vec<f32> = rel.iter().map(|w| w / total * CONTENT_W).collect();
+        let col_w = column_widths(header, rows, widths, ncols);
         let col_x: Vec<f32> = col_w
             .iter()
             .scan(MARGIN_X, |x, w| {
@@ -532,14 +525,13 @@ impl Layout {
                 Some(this)
             })
             .collect();
-        let pad_x = 4.0;
         let pad_y = 3.0;
         let lh = TABLE * 1.3;
         let wrap_row = |cells: &[String], face: Face| -> Vec<Vec<String>> {
             (0..ncols)
                 .map(|i| {
                     let text = cells.get(i).map(String::as_str).unwrap_or("");
-                    wrap(text, face, TABLE, (col_w[i] - 2.0 * pad_x).max(TABLE))
+                    wrap_cell(text, face, col_w[i])
                 })
                 .collect()
         };
@@ -578,7 +570,7 @@ impl Layout {
                     for (j, l) in lines.iter().enumerate() {
                         let baseline =
                             y - pad_y - j as f32 * lh - TABLE * ASCENT - (lh - TABLE) / 2.0;
-                        push_text(ops, face, TABLE, ink(), col_x[i] + pad_x, baseline, l);
+                        push_text(ops, face, TABLE, ink(), col_x[i] + CELL_PAD_X, baseline, l);
                     }
                 }
                 tagged::end_artifact(ops);
@@ -593,7 +585,7 @@ impl Layout {
                     for (j, l) in lines.iter().enumerate() {
                         let baseline =
                             y - pad_y - j as f32 * lh - TABLE * ASCENT - (lh - TABLE) / 2.0;
-                        layout.text(face, TABLE, ink(), col_x[i] + pad_x, baseline, l);
+                        layout.text(face, TABLE, ink(), col_x[i] + CELL_PAD_X, baseline, l);
                     }
                     layout.tags.close();
                 }
@@ -762,6 +754,40 @@ impl Layout {
             }
         }
     }
+}
+
+/// Horizontal padding on each side of a table cell, pt.
+const CELL_PAD_X: f32 = 4.0;
+
+/// The widths the table's columns take on the page, pt: `widths` (relative) when given for
+/// every column, else from the cells' text ([`auto_widths`]), scaled to the content width.
+fn column_widths(
+    header: &[String],
+    rows: &[Vec<String>],
+    widths: &[f32],
+    ncols: usize,
+) -> Vec<f32> {
+    let rel: Vec<f32> = if widths.len() == ncols && widths.iter().all(|w| w.is_finite() && *w > 0.0)
+    {
+        widths.to_vec()
+    } else {
+        auto_widths(header, rows, ncols)
+    };
+    let total: f32 = rel.iter().sum();
+    rel.iter().map(|w| w / total * CONTENT_W).collect()
+}
+
+/// The lines of a table cell of width `col_w`. A column given exactly its longest word (a
+/// one-word header over short cells, `Started` over `4`) comes back from the scaling in
+/// [`column_widths`] a rounding error narrower than the word, so the wrap allows 0.01 pt: the
+/// group report's month-over-month table printed "Starte" and "d" on two lines.
+fn wrap_cell(text: &str, face: Face, col_w: f32) -> Vec<String> {
+    wrap(
+        text,
+        face,
+        TABLE,
+        (col_w - 2.0 * CELL_PAD_X).max(TABLE) + 0.01,
+    )
 }
 
 /// Column widths from the cells' text: each column gets at least its longest word (so words
@@ -1935,6 +1961,40 @@ pub(crate) mod tests {
             (capped.iter().sum::<f32>() - CONTENT_W).abs() < 0.01,
             "{capped:?}"
         );
+    }
+
+    #[test]
+    fn a_one_word_header_over_short_cells_is_not_broken() {
+        // The group report's month-over-month table, as its first release prints it: the
+        // `Started` column is exactly its header word wide, and the PDF printed "Starte" / "d".
+        let header: Vec<String> = [
+            "Period",
+            "Started",
+            "Weighed in recently (retention)",
+            "Mean change, baseline carried forward",
+            "Reached 5 % loss",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+        let rows = vec![
+            ["June 2026", "4", "4 (100 %)", "−3.2 %", "0–4 (0–100 %)"]
+                .iter()
+                .map(|s| s.to_string())
+                .collect::<Vec<_>>(),
+        ];
+        let col_w = column_widths(&header, &rows, &[], 5);
+        for (i, cell) in header.iter().enumerate() {
+            let lines = wrap_cell(cell, Face::Bold, col_w[i]);
+            for line in &lines {
+                for word in line.split_whitespace() {
+                    assert!(
+                        cell.split_whitespace().any(|w| w == word),
+                        "column {i} `{cell}` broken inside a word: {lines:?}"
+                    );
+                }
+            }
+        }
     }
 
     #[test]

@@ -7,6 +7,7 @@ use super::Scope;
 use super::format as fmt;
 use super::{ChartView, Kv, ProgramView, TableView, cautions};
 use crate::group::shown::{Interval, Shown};
+use crate::group::summary::Plateau;
 use crate::group::{ChangeLine, GroupReport, Section, SectionStats};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle,
@@ -146,11 +147,80 @@ fn with_interval(value: String, iv: &Shown<Interval>, decimals: usize) -> String
     }
 }
 
+/// `value (aside)`, said once when both are hidden: the sponsor's report read "not shown
+/// (privacy) (not shown (privacy))" for a hidden median with its hidden n, and so did the
+/// month-over-month table's retention and 5 % columns.
+fn with_aside(value: String, aside: String) -> String {
+    if value == HIDDEN && aside == HIDDEN {
+        value
+    } else {
+        format!("{value} ({aside})")
+    }
+}
+
+/// Why the distribution is not drawn, and how its hidden bands are printed: as the ranges the
+/// rest of the report implies, or "not shown" where none is printed. A re-issued month said
+/// every hidden band was "given below as the ranges …" above a table of "not shown (privacy)",
+/// and that the bands "hold too few people", which a band hidden to protect another need not.
+fn hidden_bands_note<'a>(bands: impl Iterator<Item = &'a Shown<u64>>) -> String {
+    let (mut total, mut ranged, mut hidden) = (0, 0, 0);
+    for b in bands {
+        total += 1;
+        match b {
+            Shown::Value(_) => {}
+            Shown::Range { .. } => ranged += 1,
+            _ => hidden += 1,
+        }
+    }
+    let how = match (ranged, hidden) {
+        (_, 0) => "their counts are given below as the ranges the rest of this report already \
+                   implies"
+            .to_string(),
+        (0, _) => format!("their counts are {HIDDEN} below"),
+        _ => format!(
+            "{ranged} of them are given below as the ranges the rest of this report already \
+             implies, and {hidden} as {HIDDEN}"
+        ),
+    };
+    format!(
+        "Not drawn as a chart: {} of the {total} bands cannot be shown exactly (too few people, \
+         or a count from which a small one could be worked out), so {how}.",
+        ranged + hidden
+    )
+}
+
 /// `median (n)`, or plain words when nobody had data (no sessions offered in the period, say).
 fn median_with_n(median: String, n: &Shown<u64>) -> String {
     match n {
         Shown::Value(0) => "no data in this period".into(),
-        _ => format!("{median} ({})", count(n)),
+        _ => with_aside(median, count(n)),
+    }
+}
+
+/// The plateau line: how many are on a plateau, of how many with enough data, and the share.
+/// A hidden number with enough data is said in words: "0 of not shown (privacy) with enough
+/// data: not shown (privacy)" was the sponsor's line when only that number was hidden.
+fn plateau_cell(p: &Plateau) -> String {
+    match (&p.in_plateau, &p.with_verdict) {
+        // The interval only when it can be shown (never "x % (not shown (…))").
+        (Shown::Value(_), Shown::Value(_)) => format!(
+            "{} of {} with enough data: {}",
+            count(&p.in_plateau),
+            count(&p.with_verdict),
+            with_interval(num(&p.percent, 0, " %"), &p.ci, 0)
+        ),
+        // A hidden count hides its share and interval too: say it once.
+        (_, Shown::Value(n)) => format!("{} (of {n} with enough data)", count(&p.in_plateau)),
+        (Shown::Value(_), Shown::Range { .. }) => format!(
+            "{} of {} with enough data",
+            count(&p.in_plateau),
+            count(&p.with_verdict)
+        ),
+        (_, Shown::Range { .. }) | (Shown::Suppressed, _) => count(&p.in_plateau),
+        _ => format!(
+            "{} (the number with enough data: {HIDDEN})",
+            count(&p.in_plateau)
+        ),
     }
 }
 
@@ -210,10 +280,9 @@ pub fn headline(g: &GroupReport, period: &str) -> crate::group::ReleaseLine {
         period: period.to_string(),
         started: or_withheld(&|s| count(&s.enrolment.started)),
         retention: or_withheld(&|s| {
-            format!(
-                "{} ({})",
+            with_aside(
                 count(&s.enrolment.with_outcome),
-                num(&s.enrolment.retention_percent, 0, " %")
+                num(&s.enrolment.retention_percent, 0, " %"),
             )
         }),
         mean_change: or_withheld(&|s| num(&s.weight_change.bocf.percent.mean, 1, " %")),
@@ -222,7 +291,7 @@ pub fn headline(g: &GroupReport, period: &str) -> crate::group::ReleaseLine {
                 .iter()
                 .find(|m| (m.loss_at_least_percent - 5.0).abs() < 1e-9)
                 .map_or("–".into(), |m| {
-                    format!("{} ({})", count(&m.reached), num(&m.percent, 0, " %"))
+                    with_aside(count(&m.reached), num(&m.percent, 0, " %"))
                 })
         }),
     }
@@ -434,22 +503,7 @@ fn fill(
             ],
             vec![
                 "On a plateau at the end of the period (count)".into(),
-                match p.in_plateau {
-                    // The interval only when it can be shown (never "x % (not shown (…))").
-                    Shown::Value(_) => format!(
-                        "{} of {} with enough data: {}",
-                        count(&p.in_plateau),
-                        count(&p.with_verdict),
-                        with_interval(num(&p.percent, 0, " %"), &p.ci, 0)
-                    ),
-                    // A hidden count hides its share and interval too: say it once.
-                    _ => match p.with_verdict {
-                        Shown::Value(n) => {
-                            format!("{} (of {n} with enough data)", count(&p.in_plateau))
-                        }
-                        _ => count(&p.in_plateau),
-                    },
-                },
+                plateau_cell(p),
             ],
             vec![
                 "People with a flag for clinician review (count)".into(),
@@ -493,10 +547,8 @@ fn fill(
             // Whom the bands count is said here too: without it a sponsor cannot tell the
             // table from a completers' distribution.
             alt: format!(
-                "{hist_alt} Not drawn as a chart: {hidden_bins} of the {} bands hold too few \
-                 people to show exactly, so their counts are given below as the ranges the rest \
-                 of this report already implies.",
-                st.histogram.bins.len()
+                "{hist_alt} {}",
+                hidden_bands_note(st.histogram.bins.iter().map(|b| &b.count))
             ),
             table: hist_table,
         });
@@ -642,5 +694,66 @@ mod range_share_tests {
         assert_eq!(num(&range(79.4, 98.6), 0, " %"), "79–99 %");
         assert_eq!(num(&range(79.4, 100.0), 0, " %"), "at least 79 %");
         assert_eq!(num(&range(0.0, 6.67), 0, " %"), "at most 7 %");
+    }
+}
+
+#[cfg(test)]
+mod hidden_twice_tests {
+    use super::{HIDDEN, median_with_n, plateau_cell, with_aside};
+    use crate::group::shown::Shown;
+    use crate::group::summary::Plateau;
+
+    /// A re-issued month with one folder broken (4 people, min 3): every count hidden. The
+    /// sponsor's report read "not shown (privacy) (not shown (privacy))" in the adherence
+    /// table and the month-over-month table, and "0 of not shown (privacy) with enough data:
+    /// not shown (privacy)" for the plateau.
+    #[test]
+    fn the_undrawn_distribution_says_how_its_hidden_bands_are_printed() {
+        let bands = [
+            Shown::Value(0),
+            Shown::Suppressed,
+            Shown::Value(0),
+            Shown::Suppressed,
+        ];
+        let note = super::hidden_bands_note(bands.iter());
+        assert!(!note.contains("ranges"), "{note}");
+        assert!(note.contains("2 of the 4 bands"), "{note}");
+        assert!(note.contains(HIDDEN), "{note}");
+        let bands = [Shown::Range { lo: 0, hi: 4 }, Shown::Value(0)];
+        let note = super::hidden_bands_note(bands.iter());
+        assert!(note.contains("1 of the 2 bands"), "{note}");
+        assert!(note.contains("as the ranges"), "{note}");
+        assert!(!note.contains(HIDDEN), "{note}");
+    }
+
+    #[test]
+    fn a_hidden_figure_with_a_hidden_aside_is_said_once() {
+        assert_eq!(median_with_n(HIDDEN.into(), &Shown::Suppressed), HIDDEN);
+        assert_eq!(with_aside(HIDDEN.into(), HIDDEN.into()), HIDDEN);
+        assert_eq!(with_aside("4".into(), "100 %".into()), "4 (100 %)");
+        assert_eq!(
+            median_with_n("3.0".into(), &Shown::Range { lo: 3, hi: 4 }),
+            "3.0 (3–4)"
+        );
+        let plateau = |in_plateau, with_verdict| Plateau {
+            with_verdict,
+            in_plateau,
+            not_in_plateau: Shown::Suppressed,
+            insufficient_data: Shown::Suppressed,
+            percent: Shown::Suppressed,
+            ci: Shown::Suppressed,
+        };
+        assert_eq!(
+            plateau_cell(&plateau(Shown::Value(0), Shown::Suppressed)),
+            format!("0 (the number with enough data: {HIDDEN})")
+        );
+        assert_eq!(
+            plateau_cell(&plateau(Shown::Suppressed, Shown::Suppressed)),
+            HIDDEN
+        );
+        assert_eq!(
+            plateau_cell(&plateau(Shown::Suppressed, Shown::Value(12))),
+            format!("{HIDDEN} (of 12 with enough data)")
+        );
     }
 }

@@ -1329,7 +1329,10 @@ fn adherence_section(
         fmt::fixed(target, 0)
     );
     if *unread == ActivityUnread::NoLog {
-        alt.push_str(" No activity has been logged since you joined, so the bars show none.");
+        // No bars at all (the chart says there are no data): bars of 0 minutes, each labelled
+        // "0", drew as measured what nobody logged, beside a caption saying the bars show none.
+        bars.clear();
+        alt.push_str(" No activity has been logged since you joined, so there are no bars.");
     }
     let chart = Chart::Bars(BarChart {
         title: "Activity minutes by week".into(),
@@ -1354,6 +1357,47 @@ fn adherence_section(
 #[cfg(test)]
 mod activity_unread_tests {
     use super::*;
+
+    /// LIFE-003 of a hand-made pilot (no activity.csv): the activity chart drew a "0" over every
+    /// week, while its caption said the bars show none and the tidy files leave the minutes
+    /// empty (unknown, not zero).
+    #[test]
+    fn no_activity_logged_draws_no_bars_of_zero() {
+        let week = |d: u32| cohortpress_metric_adherence::view::WeekRow {
+            week_start: NaiveDate::from_ymd_opt(2026, 6, d).unwrap(),
+            days_covered: Some(7.0),
+            weigh_ins: Some(1.0),
+            food_log_days: Some(0.0),
+            activity_minutes: Some(0.0),
+            sessions_offered: None,
+            sessions_attended: None,
+            met_weigh_in_target: None,
+            met_food_log_target: None,
+            met_activity_target: None,
+        };
+        let adherence = AdherenceResults {
+            weekly: vec![week(1), week(8)],
+            ..AdherenceResults::default()
+        };
+        let (view, chart) =
+            adherence_section(&adherence, 150.0, &ActivityUnread::NoLog, "June 2026");
+        let Chart::Bars(bars) = &chart else {
+            panic!("a bar chart")
+        };
+        assert!(bars.bars.is_empty(), "{:?}", bars.bars);
+        assert!(
+            !view.chart.alt.contains("bars show none"),
+            "{}",
+            view.chart.alt
+        );
+        // Someone who logged and did nothing that week still gets a bar of 0.
+        let (_, chart) =
+            adherence_section(&adherence, 150.0, &ActivityUnread::Nothing, "June 2026");
+        let Chart::Bars(bars) = &chart else {
+            panic!("a bar chart")
+        };
+        assert_eq!(bars.bars.len(), 2);
+    }
 
     fn shown(minutes: f64, diags: &[Diagnostic]) -> String {
         let adherence = AdherenceResults {

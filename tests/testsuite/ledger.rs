@@ -992,3 +992,88 @@ fn check_with_out_judges_the_ledger_a_run_into_that_folder_uses() {
     assert_eq!(check(&[]).code, 3);
     assert!(check(&["--out", &out]).code != 3);
 }
+
+/// A month re-issued after an earlier one with one participant's folder broken (4 people,
+/// `min_cell_size: 3`): the counts are hidden against the earlier release. The sponsor's notes
+/// said "Shown only as a range" for counts printed "not shown (privacy)", and named four of
+/// them "with adherence measure 1" to "4", which no reader could place.
+#[test]
+fn the_audit_notes_name_each_hidden_count_as_the_report_shows_it() {
+    let t = ProgramTest::demo(4);
+    let yaml_path = t.dir.join("program.yaml");
+    let yaml = std::fs::read_to_string(&yaml_path).unwrap();
+    std::fs::write(
+        &yaml_path,
+        yaml.replace("min_cell_size: 11", "min_cell_size: 3"),
+    )
+    .unwrap();
+    let run = |period: &str, as_of: &str| {
+        t.run(&[
+            "run",
+            "{dir}",
+            "--period",
+            period,
+            "--as-of",
+            as_of,
+            "--out",
+            &format!("out-{period}"),
+            "--state",
+            "ledger",
+            "--formats",
+            "html",
+        ])
+    };
+    assert_eq!(run("2026-08", "2026-09-02").code, 1);
+    let profile = t.dir.join("participants/SG-004/profile.yaml");
+    let mut text = std::fs::read_to_string(&profile).unwrap();
+    text.push_str("sex: [\n");
+    std::fs::write(&profile, text).unwrap();
+    let o = run("2026-09", "2026-10-02");
+    assert_eq!(o.code, 4, "{o:?}");
+    let g: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(t.dir.join("out-2026-09/metrics/group.json")).unwrap(),
+    )
+    .unwrap();
+    let enrolment = &g["program"]["stats"]["enrolment"];
+    let adherence = &g["program"]["stats"]["adherence"];
+    let shown_as = |figure: &str| -> Option<&serde_json::Value> {
+        match figure {
+            "enrolled" | "active" | "started" => Some(&enrolment[figure]),
+            "with a recent weigh-in" => Some(&enrolment["with_outcome"]),
+            "the n of activity minutes per week" => {
+                Some(&adherence["activity_minutes_per_week"]["n"])
+            }
+            "the n of days with a weigh-in per week" => Some(&adherence["weigh_ins_per_week"]["n"]),
+            _ => None,
+        }
+    };
+    let notes = g["audit"].as_array().unwrap();
+    assert!(!notes.is_empty(), "{g}");
+    let mut checked = 0;
+    for note in notes {
+        let figure = note["figure"].as_str().unwrap();
+        let rule = note["rule"].as_str().unwrap();
+        assert!(
+            !figure.contains("adherence measure"),
+            "a figure the report does not name: {note}"
+        );
+        if let Some(cell) = shown_as(figure) {
+            let ranged = cell.get("at_least").is_some();
+            assert_eq!(
+                rule.starts_with("Shown only as a range"),
+                ranged,
+                "{figure} is {cell}, and its note says: {rule}"
+            );
+            checked += 1;
+        }
+    }
+    assert!(checked >= 3, "{notes:?}");
+    // The page's footer states the rule in numbers a reader can take in: it read "no count
+    // from 1 to 3 − 1 is printed exactly".
+    let html = std::fs::read_to_string(t.dir.join("out-2026-09/group/program.html")).unwrap();
+    assert!(
+        html.contains("no count above 0 and below 3 is printed exactly"),
+        "the footer's rule"
+    );
+    assert!(!html.contains("3 − 1"));
+}
