@@ -194,6 +194,19 @@ impl StagingFile<'_> {
         std::io::Error::new(e.kind(), format!("{}: {e}{}", self.rel, io_hint(&e)))
     }
 
+    /// Writes all of `bytes`; an error is [`StagingError::Io`] with the file's path (once).
+    fn write_whole(&mut self, bytes: &[u8]) -> Result<(), StagingError> {
+        self.out
+            .write_all(bytes)
+            .map_err(|source| StagingError::Io {
+                path: self.rel.clone(),
+                source,
+            })?;
+        self.hasher.update(bytes);
+        self.bytes += bytes.len() as u64;
+        Ok(())
+    }
+
     /// Flushes the file (made durable by the commit, see above) and records it (path, blake3, size) among the staged
     /// outputs.
     pub fn finish(mut self) -> Result<OutputFile, StagingError> {
@@ -724,10 +737,7 @@ impl Staging {
     /// several threads.
     pub fn write(&self, rel: &str, bytes: &[u8]) -> Result<OutputFile, StagingError> {
         let mut f = self.create(rel)?;
-        f.write_all(bytes).map_err(|source| StagingError::Io {
-            path: rel.to_string(),
-            source,
-        })?;
+        f.write_whole(bytes)?;
         f.finish()
     }
 
@@ -735,10 +745,7 @@ impl Staging {
     /// for identified outputs such as the clinician follow-up list.
     pub fn write_private(&self, rel: &str, bytes: &[u8]) -> Result<OutputFile, StagingError> {
         let mut f = self.create_with(rel, Access::Owner)?;
-        f.write_all(bytes).map_err(|source| StagingError::Io {
-            path: rel.to_string(),
-            source,
-        })?;
+        f.write_whole(bytes)?;
         f.finish()
     }
 

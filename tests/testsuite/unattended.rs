@@ -254,6 +254,15 @@ fn a_file_size_limit_fails_the_run_with_a_message_and_keeps_the_previous_output(
     assert_eq!(o.status.code(), Some(6), "{o:?}");
     assert!(stderr.contains("File too large"), "{stderr}");
     assert!(stderr.contains("ulimit -f"), "the limit is named: {stderr}");
+    // The file is named once: "participants/A.html: File too large …".
+    let line = stderr
+        .lines()
+        .find(|l| l.contains("writing outputs failed: "))
+        .expect("the failed write is reported");
+    let named = line.split("writing outputs failed: ").nth(1).unwrap();
+    let path = named.split(": ").next().unwrap();
+    assert!(path.starts_with("participants/"), "{line}");
+    assert!(!named[path.len()..].contains(path), "named twice: {line}");
     assert_eq!(tree_hashes(&out), before);
     no_leftovers(out.parent().unwrap(), "reports");
 }
