@@ -492,6 +492,17 @@ fn a_new_ledger_while_another_beside_it_holds_the_programs_releases_is_warned_ab
         "{}",
         o.stderr
     );
+    // One sentence, not the source's indentation: the message's lines were joined without
+    // `\`, and each break printed as a newline and 22 spaces.
+    let line = o
+        .stderr
+        .lines()
+        .find(|l| l.contains("a new ledger, while"))
+        .unwrap();
+    assert!(
+        line.contains("records earlier group reports of this program") && !line.contains("  "),
+        "{line}"
+    );
 }
 
 #[test]
