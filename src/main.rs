@@ -10,6 +10,20 @@ fn main() -> ExitCode {
     // Processes that external modules leave behind are adopted and stopped, up to the end.
     let _modules = cohortpress::modules::external::Containment::install();
     let cli = Cli::parse();
+    // A file-size limit (`ulimit -f`) makes the kernel send SIGXFSZ, whose default action ends
+    // the process in the middle of a write, without a word and with the staging folder left
+    // behind. With the signal caught, the write fails with EFBIG instead, and the run ends as
+    // on any failed write: a message naming the file, the previous output intact. (A caught
+    // signal is reset to its default in external modules' processes.)
+    #[cfg(unix)]
+    if let Err(e) = signal_hook::flag::register(
+        signal_hook::consts::SIGXFSZ,
+        std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false)),
+    ) {
+        eprintln!(
+            "warning: cannot catch SIGXFSZ ({e}); a file-size limit would end a run without a message"
+        );
+    }
     // A panic anywhere (a bug) ends the command with the documented code 70 and one line on
     // standard error; a run's staging folder is removed as the stack unwinds, so the previous
     // output stays as it was.

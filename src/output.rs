@@ -33,14 +33,28 @@ pub enum StagingError {
     /// complete output that a partial run would replace…): nothing was touched.
     #[error("{0}")]
     Refused(String),
-    /// An I/O error, with the path.
-    #[error("{path}: {source}")]
+    /// An I/O error, with the path (and what a file-size limit means, when that was hit).
+    #[error("{path}: {source}{}", io_hint(.source))]
     Io {
         /// The path.
         path: String,
         /// The error.
         source: std::io::Error,
     },
+}
+
+/// Words added to an I/O error whose cause the OS text alone does not tell a user: a write
+/// refused by a file-size limit (`EFBIG`; the binary turns the kernel's SIGXFSZ into this
+/// error, see `src/main.rs`).
+fn io_hint(e: &std::io::Error) -> &'static str {
+    match e.kind() {
+        std::io::ErrorKind::FileTooLarge => {
+            " (a file-size limit was reached: `ulimit -f` in the shell or job that started the \
+             run, or the largest file the file system holds; raise the limit or write the \
+             output elsewhere)"
+        }
+        _ => "",
+    }
 }
 
 fn io(path: &Path) -> impl FnOnce(std::io::Error) -> StagingError + '_ {
@@ -161,18 +175,38 @@ pub struct StagingFile<'a> {
 
 impl Write for StagingFile<'_> {
     fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
-        let n = self.out.write(buf)?;
+        let n = self.out.write(buf).map_err(|e| self.located(e))?;
         self.hasher.update(&buf[..n]);
         self.bytes += n as u64;
         Ok(n)
     }
 
     fn flush(&mut self) -> std::io::Result<()> {
-        self.out.flush()
+        self.out.flush().map_err(|e| self.located(e))
     }
 }
 
 impl StagingFile<'_> {
+    /// `e` (a write of this file refused: a full disk, a file-size limit) with the file's
+    /// path in front, as [`StagingError::Io`] says it: the writers that stream into the file
+    /// pass the error on as it is, and the run's message named no file.
+    fn located(&self, e: std::io::Error) -> std::io::Error {
+        std::io::Error::new(e.kind(), format!("{}: {e}{}", self.rel, io_hint(&e)))
+    }
+
+    /// Writes all of `bytes`; an error is [`StagingError::Io`] with the file's path (once).
+    fn write_whole(&mut self, bytes: &[u8]) -> Result<(), StagingError> {
+        self.out
+            .write_all(bytes)
+            .map_err(|source| StagingError::Io {
+                path: self.rel.clone(),
+                source,
+            })?;
+        self.hasher.update(bytes);
+        self.bytes += bytes.len() as u64;
+        Ok(())
+    }
+
     /// Flushes the file (made durable by the commit, see above) and records it (path, blake3, size) among the staged
     /// outputs.
     pub fn finish(mut self) -> Result<OutputFile, StagingError> {
@@ -703,10 +737,7 @@ impl Staging {
     /// several threads.
     pub fn write(&self, rel: &str, bytes: &[u8]) -> Result<OutputFile, StagingError> {
         let mut f = self.create(rel)?;
-        f.write_all(bytes).map_err(|source| StagingError::Io {
-            path: rel.to_string(),
-            source,
-        })?;
+        f.write_whole(bytes)?;
         f.finish()
     }
 
@@ -714,10 +745,7 @@ impl Staging {
     /// for identified outputs such as the clinician follow-up list.
     pub fn write_private(&self, rel: &str, bytes: &[u8]) -> Result<OutputFile, StagingError> {
         let mut f = self.create_with(rel, Access::Owner)?;
-        f.write_all(bytes).map_err(|source| StagingError::Io {
-            path: rel.to_string(),
-            source,
-        })?;
+        f.write_whole(bytes)?;
         f.finish()
     }
 

@@ -242,7 +242,9 @@ impl Ledger {
 
     /// [`Ledger::check_folder`] with the file at fault and the reason apart.
     pub fn folder_problem(dir: &Path) -> Result<(), FolderProblem> {
-        if !Self::own_folder(dir)? {
+        let exists = Self::own_folder(dir)?;
+        Self::writable(dir, exists)?;
+        if !exists {
             return Ok(());
         }
         let ledger_path = dir.join(LEDGER_FILE);
@@ -255,6 +257,47 @@ impl Ledger {
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
             Err(e) => Err(problem(e.to_string())),
         }
+    }
+
+    /// Refuses a ledger folder this process may not write (`access(2)` with `W_OK`: a read-only
+    /// file system, or a folder of someone else's), or, when `dir` does not exist yet, the
+    /// nearest existing folder it would be created in. A run computed every participant and
+    /// then failed at the ledger's lock file ("Read-only file system"), and `check` said the
+    /// program was fine.
+    fn writable(dir: &Path, exists: bool) -> Result<(), FolderProblem> {
+        #[cfg(unix)]
+        {
+            let target = if exists {
+                Some(dir)
+            } else {
+                dir.ancestors()
+                    .skip(1)
+                    .map(|a| {
+                        if a.as_os_str().is_empty() {
+                            Path::new(".")
+                        } else {
+                            a
+                        }
+                    })
+                    .find(|a| a.is_dir())
+            };
+            if let Some(target) = target
+                && let Err(e) = rustix::fs::access(target, rustix::fs::Access::WRITE_OK)
+            {
+                return Err(FolderProblem {
+                    path: target.to_path_buf(),
+                    why: format!(
+                        "cannot be written ({}); a run records each group report in the \
+                         ledger before it publishes the report, so it would stop there; name a \
+                         ledger folder this run can write with --state (or report.state_dir)",
+                        std::io::Error::from(e)
+                    ),
+                });
+            }
+        }
+        #[cfg(not(unix))]
+        let _ = (dir, exists);
+        Ok(())
     }
 
     /// Refuses `dir` unless it is missing (`Ok(false)`) or a folder that holds nothing but the

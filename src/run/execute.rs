@@ -426,7 +426,11 @@ pub fn finish(
             let others = group::ledger::ledgers_beside(ledger.dir(), &plan.program.info.id);
             if !others.is_empty() {
                 tracing::warn!(
-                    "group-report ledger {}: a new ledger, while {} beside it records earlier                      group reports of this program, which this one is not audited against                      (report.out changed?); name that ledger with --state (or                      report.state_dir), or a difference of two reports may give away a small                      group's figures",
+                    "group-report ledger {}: a new ledger, while {} beside it records earlier \
+                     group reports of this program, which this one is not audited against \
+                     (report.out changed?); name that ledger with --state (or \
+                     report.state_dir), or a difference of two reports may give away a small \
+                     group's figures",
                     ledger.dir().display(),
                     others
                         .iter()

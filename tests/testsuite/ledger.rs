@@ -492,6 +492,17 @@ fn a_new_ledger_while_another_beside_it_holds_the_programs_releases_is_warned_ab
         "{}",
         o.stderr
     );
+    // One sentence, not the source's indentation: the message's lines were joined without
+    // `\`, and each break printed as a newline and 22 spaces.
+    let line = o
+        .stderr
+        .lines()
+        .find(|l| l.contains("a new ledger, while"))
+        .unwrap();
+    assert!(
+        line.contains("records earlier group reports of this program") && !line.contains("  "),
+        "{line}"
+    );
 }
 
 #[test]
@@ -665,6 +676,81 @@ fn a_ledger_folder_that_cannot_be_used_stops_the_run_before_anything_is_computed
         o.stderr
     );
     assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+}
+
+/// Unmounts a folder when dropped.
+struct Mounted(std::path::PathBuf);
+
+impl Drop for Mounted {
+    fn drop(&mut self) {
+        let _ = std::process::Command::new("umount").arg(&self.0).status();
+    }
+}
+
+/// A ledger folder on a file system mounted read-only (a restored backup, a share mounted
+/// `ro`, a disk the kernel turned read-only after errors): `check` said the program was fine,
+/// and every run computed every participant and only then failed at the ledger's lock file
+/// with "Read-only file system (os error 30)". Now both refuse it at once. Needs the right to
+/// mount (root, as on the project's test machine); skipped with a message without it.
+#[cfg(unix)]
+#[test]
+fn a_ledger_folder_that_cannot_be_written_is_refused_before_anything_is_computed() {
+    let t = ProgramTest::fixture("report-small");
+    let mnt = t.dir.parent().unwrap().join("mnt");
+    std::fs::create_dir(&mnt).unwrap();
+    let mounted = std::process::Command::new("mount")
+        .args(["-t", "tmpfs", "-o", "size=16m", "tmpfs"])
+        .arg(&mnt)
+        .stderr(std::process::Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success());
+    if !mounted {
+        eprintln!("skipped: cannot mount a tmpfs here (not root)");
+        return;
+    }
+    let _guard = Mounted(mnt.clone());
+    let state = mnt.join("ledger");
+    let state_s = state.to_string_lossy().into_owned();
+    let fresh = mnt.join("fresh");
+    let fresh_s = fresh.to_string_lossy().into_owned();
+    let run = |state: &str| {
+        t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--state",
+            state,
+        ])
+    };
+    let o = run(&state_s);
+    assert_eq!(o.code, 0, "{o:?}");
+    let remounted = std::process::Command::new("mount")
+        .args(["-o", "remount,ro"])
+        .arg(&mnt)
+        .status()
+        .is_ok_and(|s| s.success());
+    assert!(remounted, "remount read-only");
+    let before = tree_hashes(&t.dir.join("reports"));
+    for (state, shown) in [(&state_s, state.clone()), (&fresh_s, mnt.clone())] {
+        let o = run(state);
+        assert_eq!(o.code, 6, "{o:?}");
+        assert!(
+            o.stderr
+                .contains(&format!("{}: cannot be written", shown.display()))
+                && o.stderr.contains("Read-only file system"),
+            "{}",
+            o.stderr
+        );
+        // Refused before the participants: the line that starts them is not logged.
+        assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+        let c = t.run(&["check", "{dir}", "--as-of", AS_OF, "--state", state]);
+        assert_eq!(c.code, 6, "check agrees with run: {c:?}");
+        assert!(c.stdout.contains("cannot be written"), "{c:?}");
+    }
+    assert_eq!(tree_hashes(&t.dir.join("reports")), before);
 }
 
 #[test]

@@ -226,6 +226,79 @@ fn a_failed_run_leaves_no_staging_and_the_previous_output() {
     no_leftovers(out.parent().unwrap(), "reports");
 }
 
+/// A file-size limit (`ulimit -f`, as a batch system or a shared host sets one) made the
+/// kernel stop the run with SIGXFSZ in the middle of a write: no message from the tool, an exit
+/// by signal, and the staging folder left beside the output. A limit reached is now an ordinary
+/// failed write: exit 6 with a message naming the file and the limit, the previous output byte
+/// for byte, and nothing left over.
+#[cfg(unix)]
+#[test]
+fn a_file_size_limit_fails_the_run_with_a_message_and_keeps_the_previous_output() {
+    let t = small();
+    let out = beside(&t, "reports");
+    assert_eq!(run_to(&t, &out, &[]).code, 0);
+    let before = tree_hashes(&out);
+    // 16 blocks (8 or 16 KiB as the shell counts them): each participant's report is larger.
+    let o = Command::new("sh")
+        .arg("-c")
+        .arg(format!(
+            "ulimit -f 16 && exec \"$0\" run \"$1\" --as-of {AS_OF} --formats html --out \"$2\""
+        ))
+        .arg(BIN)
+        .arg(&t.dir)
+        .arg(&out)
+        .current_dir(&t.dir)
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(6), "{o:?}");
+    assert!(stderr.contains("File too large"), "{stderr}");
+    assert!(stderr.contains("ulimit -f"), "the limit is named: {stderr}");
+    // The file is named once: "participants/A.html: File too large …".
+    let line = stderr
+        .lines()
+        .find(|l| l.contains("writing outputs failed: "))
+        .expect("the failed write is reported");
+    let named = line.split("writing outputs failed: ").nth(1).unwrap();
+    let path = named.split(": ").next().unwrap();
+    assert!(path.starts_with("participants/"), "{line}");
+    assert!(!named[path.len()..].contains(path), "named twice: {line}");
+    assert_eq!(tree_hashes(&out), before);
+    no_leftovers(out.parent().unwrap(), "reports");
+}
+
+/// The tidy metrics are streamed into their files, and a write refused there (a full disk, a
+/// file-size limit) was reported as "writing outputs failed: File too large (os error 27)",
+/// naming no file. The message now names the file, as for every other output.
+#[cfg(unix)]
+#[test]
+fn a_write_refused_in_a_streamed_metrics_file_names_the_file() {
+    let t = ProgramTest::sample();
+    let out = beside(&t, "reports");
+    // 400 blocks (200 or 400 KiB as the shell counts them): every report and partial result
+    // of the sample fits, its metrics/tables.csv (over 1 MB) does not.
+    let o = Command::new("sh")
+        .arg("-c")
+        .arg(format!(
+            "ulimit -f 400 && exec \"$0\" run \"$1\" --as-of {AS_OF} --formats html --out \"$2\""
+        ))
+        .arg(BIN)
+        .arg(&t.dir)
+        .arg(&out)
+        .current_dir(&t.dir)
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(6), "{o:?}");
+    assert!(
+        stderr.contains("writing outputs failed: metrics/"),
+        "the file is named: {stderr}"
+    );
+    assert!(stderr.contains("ulimit -f"), "the limit is named: {stderr}");
+    assert!(!out.exists(), "no output was left");
+    no_leftovers(out.parent().unwrap(), "reports");
+}
+
 #[test]
 fn a_run_killed_between_the_renames_is_recovered() {
     let t = small();
