@@ -391,6 +391,7 @@ fn counts_are_integers_in_the_descriptor_the_csv_and_the_json() {
         }
     }
     assert!(seen > 40, "{seen}");
+}
 
 /// A participant whose weigh-ins are another folder's (one person enrolled twice, a folder
 /// copied) is left out of the group report, so `participants.csv` must not count them as started
