@@ -1976,6 +1976,28 @@ fn lab_unit(test: LabTest, unit: &str) -> Option<fn(f64) -> f64> {
     })
 }
 
+/// The accepted units of `test` ([`lab_unit`]) in which the unit-less number `text` is a
+/// plausible value ([`lab_range`]). HbA1c `6.8` fits only `%` (6.8 mmol/mol is 2.8 %) and `52`
+/// only `mmol/mol`; a fasting glucose of `5.9` fits only `mmol/L` and `131` only `mg/dL`; values
+/// that fit two (glucose 18–40, HbA1c about 9–20, most waists) fit both and are not read.
+fn lab_units_by_magnitude(test: LabTest, text: &str) -> Vec<&'static str> {
+    let Ok(v) = text.trim().parse::<f64>() else {
+        return Vec::new();
+    };
+    let units: &[&'static str] = match test {
+        LabTest::FastingGlucose => &["mmol/L", "mg/dL"],
+        LabTest::Hba1c => &["%", "mmol/mol"],
+        LabTest::Waist => &["cm", "in"],
+        LabTest::SystolicBp | LabTest::DiastolicBp => &["mmHg"],
+    };
+    let (lo, hi) = lab_range(test);
+    units
+        .iter()
+        .copied()
+        .filter(|u| v.is_finite() && lab_unit(test, u).is_some_and(|f| (lo..=hi).contains(&f(v))))
+        .collect()
+}
+
 fn lab_units_text(test: LabTest) -> &'static str {
     match test {
         LabTest::FastingGlucose => "`mmol/L` or `mg/dL`",
@@ -2097,13 +2119,47 @@ pub fn parse_labs(
             .or(c.table.header_unit("value"))
             .map(str::to_string)
             .or_else(|| matches!(kind, LabName::BloodPressure).then(|| "mmHg".to_string()));
-        let Some(unit) = unit else {
-            d.push(
-                c.warn("value", format!("no unit for `{name}`; the row is dropped"))
-                    .found(format!("`{raw}`"))
-                    .hint("add a `unit` column, or write the unit with the value (`5.7 %`)"),
-            );
-            return None;
+        // Without a unit, a value that only one accepted unit makes plausible is read in it,
+        // with a warning: an HbA1c of `6.8` or a fasting glucose of `131` is in the diabetes
+        // range and must reach the clinician's flag, not only the data-quality list.
+        let unit = match (unit, kind) {
+            (Some(u), _) => u,
+            (None, LabName::One(test)) => {
+                let plausible = lab_units_by_magnitude(test, num_text);
+                if let [only] = plausible.as_slice() {
+                    d.push(
+                        c.warn("value", format!("no unit for `{name}`; read as {only}"))
+                            .found(format!("`{raw}`"))
+                            .expected(lab_units_text(test))
+                            .hint(format!(
+                                "{only} is the only accepted unit in which `{}` is a plausible \
+                                 `{name}`; add a `unit` column, or write the unit with the value \
+                                 (`5.7 %`)",
+                                num_text.trim(),
+                            )),
+                    );
+                    only.to_string()
+                } else {
+                    d.push(
+                        c.warn("value", format!("no unit for `{name}`; the row is dropped"))
+                            .found(format!("`{raw}`"))
+                            .expected(lab_units_text(test))
+                            .hint(if plausible.is_empty() {
+                                "add a `unit` column, or write the unit with the value (`5.7 %`)"
+                                    .to_string()
+                            } else {
+                                format!(
+                                    "`{}` is plausible in {}: add a `unit` column, or write \
+                                     the unit with the value (`5.7 %`)",
+                                    num_text.trim(),
+                                    plausible.join(" and in ")
+                                )
+                            }),
+                    );
+                    return None;
+                }
+            }
+            (None, LabName::BloodPressure) => unreachable!("blood pressure defaults to mmHg"),
         };
         let parts: Vec<(LabTest, &str)> = match kind {
             LabName::One(t) => vec![(t, num_text)],

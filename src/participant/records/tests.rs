@@ -1900,3 +1900,54 @@ fn the_thousands_note_quotes_a_number_the_file_holds() {
         "{notes:?}"
     );
 }
+
+/// A lab value without a unit is read in the one accepted unit that makes it plausible, with a
+/// warning, so a diabetes-range HbA1c or fasting glucose still reaches the clinician's flag; a
+/// value plausible in two units is still dropped. Ranges: `lab_range` (common practice);
+/// conversions as in `labs_are_converted_to_canonical_units`.
+#[test]
+fn a_lab_value_without_a_unit_is_read_in_the_one_unit_that_makes_it_plausible() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value\n2026-04-01,hba1c,6.8\n2026-04-02,hba1c,53\n2026-04-03,fasting_glucose,131\n2026-04-04,fasting_glucose,7.4\n2026-04-05,fasting_glucose,25\n2026-04-06,waist,90\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let got: Vec<(LabTest, f64, &str)> = v
+        .iter()
+        .map(|l| {
+            (
+                l.test,
+                (l.value * 100.0).round() / 100.0,
+                l.unit_as_written.as_str(),
+            )
+        })
+        .collect();
+    assert_eq!(
+        got,
+        vec![
+            (LabTest::Hba1c, 6.8, "%"),
+            // Hoelzel et al. 2004, Clin Chem 50:166: 53 mmol/mol = 7.0 %.
+            (LabTest::Hba1c, 7.0, "mmol/mol"),
+            // 131 mg/dL ÷ 18.016 = 7.27 mmol/L.
+            (LabTest::FastingGlucose, 7.27, "mg/dL"),
+            (LabTest::FastingGlucose, 7.4, "mmol/L"),
+        ]
+    );
+    assert_eq!(diags.len(), 6, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("no unit for `hba1c`; read as %"),
+        "{}",
+        diags[0]
+    );
+    assert!(diags[2].message.contains("read as mg/dL"), "{}", diags[2]);
+    // 25 mmol/L and 25 mg/dL (1.4 mmol/L) are both possible; 90 cm and 90 in too.
+    for d in &diags[4..] {
+        assert!(d.message.contains("the row is dropped"), "{d}");
+        assert!(d.hint.as_deref().unwrap().contains("plausible in"), "{d}");
+    }
+    assert_eq!(diags[4].line, Some(6));
+}
