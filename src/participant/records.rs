@@ -2162,6 +2162,8 @@ pub fn parse_labs(
             (None, LabName::BloodPressure) => unreachable!("blood pressure defaults to mmHg"),
         };
         let parts: Vec<(LabTest, &str)> = match kind {
+            // `abc` splits into no number and the "unit" `abc`: the message quotes the cell.
+            LabName::One(t) if num_text.trim().is_empty() => vec![(t, raw.as_str())],
             LabName::One(t) => vec![(t, num_text)],
             LabName::BloodPressure => match num_text.split_once('/') {
                 Some((sys, dia)) => vec![

@@ -1951,3 +1951,26 @@ fn a_lab_value_without_a_unit_is_read_in_the_one_unit_that_makes_it_plausible() 
     }
     assert_eq!(diags[4].line, Some(6));
 }
+
+/// A lab value that is not a number at all is quoted as written: `abc` was read as no number
+/// with the unit `abc`, and the message said it found an empty value.
+#[test]
+fn a_lab_value_that_is_not_a_number_is_quoted_as_written() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value\n2026-04-01,waist,abc\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert!(v.is_empty());
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(
+        diags[0].message.starts_with("not a number in `value`"),
+        "{}",
+        diags[0]
+    );
+    assert_eq!(diags[0].found.as_deref(), Some("`abc`"));
+}
