@@ -200,6 +200,21 @@ fn bold_text(size: f64, colour: RGBColor) -> TextStyle<'static> {
     (FAMILY, size, FontStyle::Bold).into_font().color(&colour)
 }
 
+/// The title's style for a drawing `width` pixels wide: `TITLE_SIZE`, or smaller (not below
+/// `LABEL_SIZE`) so that the title, measured with the embedded font, fits between the chart's
+/// 10-pixel margins. The narrow drawing (380 px) cut "Mean weight change by week (those still
+/// weighing in)" off at both ends on a phone.
+fn title_text(title: &str, width: u32) -> TextStyle<'static> {
+    let room = f64::from(width.saturating_sub(2 * 10 + 4));
+    let (w, _) = estimate_text_size(title, &bold_text(TITLE_SIZE, INK));
+    let size = if f64::from(w) > room && w > 0 {
+        (TITLE_SIZE * room / f64::from(w)).max(LABEL_SIZE)
+    } else {
+        TITLE_SIZE
+    };
+    bold_text(size, INK)
+}
+
 // ---- text measurement shared by both backends ----------------------------------------------
 
 /// The face a plotters text style maps to.
@@ -456,7 +471,7 @@ fn draw_empty<DB: DrawingBackend>(title: &str, root: &DrawingArea<DB, Shift>) ->
     root.draw(&Text::new(
         title.to_string(),
         (w as i32 / 2, 10),
-        bold_text(TITLE_SIZE, INK).pos(Pos::new(HPos::Center, VPos::Top)),
+        title_text(title, w).pos(Pos::new(HPos::Center, VPos::Top)),
     ))?;
     root.draw(&Text::new(
         "No data for this period".to_string(),
@@ -577,7 +592,7 @@ fn draw_line_chart<DB: DrawingBackend>(
     };
     let mut swatches: Vec<(String, Swatch)> = Vec::new();
     let mut chart = ChartBuilder::on(&plot_area)
-        .caption(&c.title, bold_text(TITLE_SIZE, INK))
+        .caption(&c.title, title_text(&c.title, plot_area.dim_in_pixel().0))
         .margin(10)
         .margin_right(18)
         .x_label_area_size(30)
@@ -812,7 +827,7 @@ fn draw_bar_chart<DB: DrawingBackend>(
     let any_suppressed = c.bars.iter().any(|b| b.suppressed);
 
     let mut chart = ChartBuilder::on(root)
-        .caption(&c.title, bold_text(TITLE_SIZE, INK))
+        .caption(&c.title, title_text(&c.title, root.dim_in_pixel().0))
         .margin(10)
         .margin_right(18)
         .x_label_area_size(if any_suppressed { 48 } else { 30 })
@@ -1397,5 +1412,56 @@ pub(crate) mod tests {
         assert_eq!(fmt_num(-0.001, 1), "0");
         assert_eq!(fmt_num(-2.0, 1), "\u{2212}2");
         assert_eq!(fmt_num(91.349, 1), "91.3");
+    }
+}
+
+#[cfg(test)]
+mod title_tests {
+    use super::tests::sample_line;
+    use super::*;
+
+    /// The drawn title (the bold `<text>`): its font size and its text.
+    fn drawn_title(svg: &str) -> (f32, String) {
+        let at = svg.find("font-weight=\"bold\"").expect("a bold title");
+        let start = svg[..at].rfind("<text").unwrap();
+        let tag = &svg[start..];
+        let size: f32 = tag
+            .split("font-size=\"")
+            .nth(1)
+            .and_then(|r| r.split('"').next())
+            .and_then(|v| v.parse().ok())
+            .unwrap();
+        let body = &tag[tag.find('>').unwrap() + 1..tag.find("</text>").unwrap()];
+        (size, body.trim().to_string())
+    }
+
+    /// A title too long for the narrow (phone) drawing is drawn smaller so that it fits inside
+    /// the drawing: "Mean weight change by week (those still weighing in)" at 380 px ran off both
+    /// ends. A short title keeps the full size.
+    #[test]
+    fn a_long_title_fits_the_narrow_drawing() {
+        let Chart::Line(mut c) = sample_line() else {
+            unreachable!()
+        };
+        c.title = "Mean weight change by week (those still weighing in)".into();
+        let long = Chart::Line(c.clone());
+        for (width, svg) in [
+            (380, to_svg_narrow(&long, 380, 260)),
+            (720, to_svg(&long, 720, 300)),
+        ] {
+            let (size, text) = drawn_title(&svg);
+            assert_eq!(text, c.title);
+            let w = font::text_width(Face::Bold, &text, size);
+            assert!(
+                w <= width as f32 - 20.0,
+                "{w} px title in a {width} px drawing"
+            );
+        }
+        c.title = "Weight".into();
+        let (size, _) = drawn_title(&to_svg_narrow(&Chart::Line(c), 380, 260));
+        assert!(
+            (size - TITLE_SIZE as f32 / SVG_FONT_DIVISOR).abs() < 1e-3,
+            "{size}"
+        );
     }
 }
