@@ -102,14 +102,25 @@ pub fn check_package(metrics: &Path) -> Vec<String> {
     problems
 }
 
-/// The checker finds what it is there to find: a number that is not one, an empty required
-/// cell, a repeated key and a column the schema does not list.
-#[test]
-fn the_checker_finds_a_broken_tidy_file() {
+/// The sample program run for the period ending 2026-12-01 (HTML only; exit 4, as the README
+/// says: one participant's files are unusable), with its `reports/metrics` folder.
+fn sample_metrics() -> (crate::harness::ProgramTest, std::path::PathBuf) {
     let t = crate::harness::ProgramTest::sample();
     let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
     assert_eq!(out.code, 4, "{}", out.stderr);
     let metrics = t.dir.join("reports/metrics");
+    (t, metrics)
+}
+
+fn read_json(path: &Path) -> Value {
+    serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap()
+}
+
+/// The checker finds what it is there to find: a number that is not one, an empty required
+/// cell, a repeated key and a column the schema does not list.
+#[test]
+fn the_checker_finds_a_broken_tidy_file() {
+    let (_t, metrics) = sample_metrics();
     assert_eq!(check_package(&metrics), Vec::<String>::new());
 
     let weekly = metrics.join("weekly.csv");
@@ -157,10 +168,7 @@ fn the_checker_finds_a_broken_tidy_file() {
 /// primary (BOCF) nor the completers' figure the group report prints.
 #[test]
 fn participants_csv_tells_enrolment_withdrawal_and_who_counts_as_a_completer() {
-    let t = crate::harness::ProgramTest::sample();
-    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
-    assert_eq!(out.code, 4, "{}", out.stderr);
-    let metrics = t.dir.join("reports/metrics");
+    let (_t, metrics) = sample_metrics();
     assert_eq!(check_package(&metrics), Vec::<String>::new());
     let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
     let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
@@ -266,14 +274,9 @@ fn the_datapackage_names_the_run_that_made_the_files() {
 /// reading the descriptor gives the analyst a date, not a string to parse.
 #[test]
 fn a_day_among_the_text_outputs_is_typed_date() {
-    let t = crate::harness::ProgramTest::sample();
-    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
-    assert_eq!(out.code, 4, "{}", out.stderr);
-    let metrics = t.dir.join("reports/metrics");
+    let (_t, metrics) = sample_metrics();
     assert_eq!(check_package(&metrics), Vec::<String>::new());
-    let package: Value =
-        serde_json::from_str(&std::fs::read_to_string(metrics.join("datapackage.json")).unwrap())
-            .unwrap();
+    let package = read_json(&metrics.join("datapackage.json"));
     let field = |name: &str| {
         package["resources"][0]["schema"]["fields"]
             .as_array()
@@ -298,13 +301,8 @@ fn a_day_among_the_text_outputs_is_typed_date() {
 /// was described only as "weight-change category", the BMI classes as "WHO BMI class now").
 #[test]
 fn each_code_column_names_its_codes() {
-    let t = crate::harness::ProgramTest::sample();
-    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
-    assert_eq!(out.code, 4, "{}", out.stderr);
-    let metrics = t.dir.join("reports/metrics");
-    let package: Value =
-        serde_json::from_str(&std::fs::read_to_string(metrics.join("datapackage.json")).unwrap())
-            .unwrap();
+    let (_t, metrics) = sample_metrics();
+    let package = read_json(&metrics.join("datapackage.json"));
     let fields = package["resources"][0]["schema"]["fields"]
         .as_array()
         .unwrap()
@@ -348,13 +346,8 @@ fn each_code_column_names_its_codes() {
 /// `38.0`. Measures that are not counts stay `number`.
 #[test]
 fn counts_are_integers_in_the_descriptor_the_csv_and_the_json() {
-    let t = crate::harness::ProgramTest::sample();
-    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
-    assert_eq!(out.code, 4, "{}", out.stderr);
-    let metrics = t.dir.join("reports/metrics");
-    let package: Value =
-        serde_json::from_str(&std::fs::read_to_string(metrics.join("datapackage.json")).unwrap())
-            .unwrap();
+    let (_t, metrics) = sample_metrics();
+    let package = read_json(&metrics.join("datapackage.json"));
     let fields = package["resources"][0]["schema"]["fields"]
         .as_array()
         .unwrap();
@@ -377,9 +370,7 @@ fn counts_are_integers_in_the_descriptor_the_csv_and_the_json() {
     }
     assert_eq!(ty("trend.current_weight_kg"), "number");
     assert_eq!(check_package(&metrics), Vec::<String>::new());
-    let json: Value =
-        serde_json::from_str(&std::fs::read_to_string(metrics.join("participants.json")).unwrap())
-            .unwrap();
+    let json = read_json(&metrics.join("participants.json"));
     let mut seen = 0;
     for row in json.as_array().unwrap() {
         for entry in row["scalars"].as_array().unwrap() {
