@@ -2330,7 +2330,13 @@ impl Cells<'_> {
                 {
                     self.table
                         .recognised("dotted dates read day first (`01.05.2026` = 1 May 2026)");
-                } else if b.len() >= 10 && b[4] == b'/' && !self.opts.date_format.contains('/') {
+                } else if b.len() >= 10
+                    && b[..4].iter().all(u8::is_ascii_digit)
+                    && b[4] == b'/'
+                    && !self.opts.date_format.contains('/')
+                {
+                    // Four digits before the first slash: a year (`5/13/2026` has its second
+                    // slash at the same place and is month first).
                     self.table
                         .recognised("dates written year/month/day (`2026/05/01`)");
                 }

@@ -1736,6 +1736,16 @@ fn forms_recognised_in_the_cells_are_stated_once_per_file() {
     assert!(n.contains("durations as h:mm:ss"), "{n}");
     assert!(n.contains("durations with their units"), "{n}");
     assert!(!n.contains("month's name"), "{n}");
+    // A month-first date with a one-digit month and a two-digit day (`5/13/2026`) has its
+    // second slash at the fifth byte, like `2026/05/13`: it is no year-first date.
+    let n = notes(
+        "Date,Weight (kg)\n5/1/2026 7:32 AM,84.2\n5/13/2026 7:30 PM,84.0\n",
+        w,
+    );
+    assert!(n.contains("numeric dates read month first"), "{n}");
+    assert!(!n.contains("year/month/day"), "{n}");
+    let n = notes("Date,Weight (kg)\n2026/05/01,84.2\n2026/05/13,84.0\n", w);
+    assert!(n.contains("dates written year/month/day"), "{n}");
 }
 
 /// A smart scale app's export: a date row (` May 1, 2026`) above that day's measurements,
