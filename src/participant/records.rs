@@ -13,7 +13,7 @@ use super::table::{
     Cells, CsvOptions, Dropped, FileCtx, SUMMARY_LABELS, Table, header_key, is_label, read_table,
 };
 use crate::activities;
-use crate::diag::Diagnostic;
+use crate::diag::{Diagnostic, Severity};
 pub use crate::program::files::{ACTIVITY, ALL_FILES, INTAKE, LABS, MET_RANGE, SESSIONS, WEIGHTS};
 use chrono::{Datelike, NaiveDate, NaiveTime};
 use cohortpress_metric_api::units::{
@@ -140,6 +140,12 @@ struct Parsed<T> {
 
 /// Reads the rows of `table` through `f`, skipping rows `f` refuses and rows that repeat
 /// earlier rows on strong evidence ([`Table::repeated_rows`]).
+///
+/// When rows were dropped with a warning and none was kept, the file gives nothing: that is
+/// an error on the file (exit code 4, "a file was left out"), not a column of warnings a
+/// scheduled run's log reports as a clean run with warnings. A whole export in a form no row
+/// of which reads (a timestamp column in epoch milliseconds, say) was reported as warnings
+/// only, and the participant's report had no weigh-ins.
 fn parse_rows<T>(
     table: &Table,
     ctx: &FileCtx,
@@ -150,6 +156,9 @@ fn parse_rows<T>(
     let repeats = table.repeated_rows();
     report_repeats(table, &repeats, ctx, diags);
     let mut out = Vec::new();
+    // Rows dropped with a warning: their number and the first one's warning.
+    let mut dropped = 0usize;
+    let mut first_dropped: Option<Diagnostic> = None;
     for (row, repeat) in table.rows.iter().zip(&repeats) {
         if repeat.is_some() {
             continue;
@@ -160,17 +169,50 @@ fn parse_rows<T>(
             ctx,
             opts,
         };
-        let Some(when) = cells.when("date", diags) else {
-            continue;
-        };
-        if let Some(value) = f(&cells, diags) {
-            out.push(Parsed {
+        let before = diags.len();
+        let kept = cells.when("date", diags).and_then(|when| {
+            f(&cells, diags).map(|value| Parsed {
                 line: row.line,
                 date: when.date,
                 time: when.time,
                 value,
-            });
+            })
+        });
+        match kept {
+            Some(p) => out.push(p),
+            None => {
+                if let Some(d) = diags[before..]
+                    .iter()
+                    .find(|d| d.severity == Severity::Warning)
+                {
+                    dropped += 1;
+                    first_dropped.get_or_insert_with(|| d.clone());
+                }
+            }
         }
+    }
+    if out.is_empty()
+        && let Some(first) = first_dropped
+    {
+        let rows = if dropped == 1 { "row" } else { "rows" };
+        let mut e = ctx
+            .error(format!(
+                "no row of the file could be read: {dropped} {rows} dropped, each named in a \
+                 warning; the file is not used"
+            ))
+            .expected("rows whose values can be read")
+            .found(match &first.found {
+                Some(found) => format!("{} ({found})", first.message),
+                None => first.message.clone(),
+            })
+            .hint(
+                "the first warning names what each row needs; export the file again in a form \
+                 it lists, or map its columns in program.yaml's `input:`",
+            );
+        if let Some(line) = first.line {
+            e = e.at(line, None);
+        }
+        diags.push(e);
     }
     out
 }

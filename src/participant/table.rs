@@ -2307,7 +2307,8 @@ impl Cells<'_> {
         };
         let when = parse_when(s, self.opts)
             .or_else(|| self.serial_date(s))
-            .or_else(|| self.numeric_date(s));
+            .or_else(|| self.numeric_date(s))
+            .or_else(|| self.unix_time(s));
         match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
@@ -2453,6 +2454,48 @@ impl Cells<'_> {
             date: dt.date(),
             time: (dt.time() != midnight).then_some(dt.time()),
             from_utc: false,
+        })
+    }
+
+    /// Unix time: whole seconds (10 digits) or milliseconds (13 digits) since 1970-01-01 UTC,
+    /// the instant some phone-app and scale exports write for a measurement (from memory).
+    /// Taken on its local day in `input.time_zone`, else on its UTC day, like `…Z`; only
+    /// within [`SERIAL_DATE_MARGIN_DAYS`] of the program, since ten digits could also be a
+    /// date with an hour (`2026050107`), and read so the instant falls years away. Every row
+    /// of such an export was dropped as an unreadable date.
+    fn unix_time(&self, s: &str) -> Option<When> {
+        if !s.bytes().all(|b| b.is_ascii_digit()) {
+            return None;
+        }
+        let (secs, millis) = match s.len() {
+            10 => (s.parse::<i64>().ok()?, 0),
+            13 => {
+                let ms = s.parse::<i64>().ok()?;
+                (ms.div_euclid(1000), ms.rem_euclid(1000))
+            }
+            _ => return None,
+        };
+        let instant =
+            chrono::DateTime::from_timestamp(secs, u32::try_from(millis).ok()? * 1_000_000)?;
+        let (start, end) = self.opts.program_span?;
+        let margin = chrono::Duration::days(SERIAL_DATE_MARGIN_DAYS);
+        let utc_day = instant.date_naive();
+        if utc_day < start - margin || utc_day > end + margin {
+            return None;
+        }
+        let local = match &self.opts.time_zone {
+            Some(z) => z.local(instant.fixed_offset()),
+            None => instant.naive_utc(),
+        };
+        self.table.recognised(if s.len() == 10 {
+            "times in Unix seconds (`1777622400` = 2026-05-01 08:00 UTC)"
+        } else {
+            "times in Unix milliseconds (`1777622400000` = 2026-05-01 08:00 UTC)"
+        });
+        Some(When {
+            date: local.date(),
+            time: Some(local.time()),
+            from_utc: true,
         })
     }
 

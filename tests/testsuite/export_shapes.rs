@@ -24,6 +24,7 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("weights-excel-serial-1904.csv", 2, false),
     ("weights-excel-serial-unplaceable.csv", 0, true),
     ("weights-health-app-offsets.csv", 3, false),
+    ("weights-unix-milliseconds.csv", 3, false),
     ("weights-month-name-dates.csv", 3, false),
     ("weights-day-month-name-dates.csv", 3, false),
     ("weights-german-scale.csv", 3, false),
@@ -257,6 +258,20 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         ]
     );
     same(kg("weights-health-app-offsets.csv"), &[72.5, 73.1, 72.4]);
+    // Unix milliseconds: 1777622400000 is 2026-05-01 08:00 UTC, taken on its UTC day (the
+    // program sets no time zone).
+    let unix = &got["weights-unix-milliseconds.csv"].weights;
+    assert_eq!(
+        unix.iter()
+            .map(|w| (w.0, w.1.as_deref()))
+            .collect::<Vec<_>>(),
+        [
+            (d(5, 1), Some("08:00")),
+            (d(5, 2), Some("08:00")),
+            (d(5, 3), Some("08:00"))
+        ]
+    );
+    same(kg("weights-unix-milliseconds.csv"), &[72.5, 72.3, 72.4]);
     assert_eq!(
         days("weights-month-name-dates.csv"),
         [d(5, 1), d(5, 2), d(5, 3)]

@@ -120,6 +120,71 @@ fn decimal_comma_with_semicolon_delimiter() {
     }
 }
 
+/// A file none of whose rows reads gives nothing: an error on the file (exit code 4), besides
+/// each row's warning; one row read is enough for warnings only.
+#[test]
+fn a_file_of_which_no_row_reads_is_an_error() {
+    let (w, diags) = read(
+        "timestamp,weight_kg\n1777622400000,84.2\n1777708800000,84.0\n1777795200000,83.8\n",
+        &window(),
+    );
+    assert_eq!(w.as_deref().map(<[WeighIn]>::len), Some(0));
+    let errors: Vec<_> = diags
+        .iter()
+        .filter(|d| d.severity == Severity::Error)
+        .collect();
+    assert_eq!(errors.len(), 1, "{diags:#?}");
+    assert_eq!(
+        errors[0].message,
+        "no row of the file could be read: 3 rows dropped, each named in a warning; the file \
+         is not used"
+    );
+    assert_eq!(errors[0].line, Some(2));
+    assert_eq!(errors[0].file, "participants/P1/weights.csv");
+    assert!(
+        errors[0]
+            .found
+            .as_deref()
+            .is_some_and(|f| f.contains("unreadable date") && f.contains("1777622400000")),
+        "{:?}",
+        errors[0].found
+    );
+    assert_eq!(diags.len(), 4, "{diags:#?}");
+    // The same instants read within a program's span (seconds or milliseconds), and ten
+    // digits far outside it (`2026050107`, a date with an hour, is 2034 in Unix seconds) not.
+    let opts = CsvOptions {
+        program_span: Some((d(2026, 4, 1), d(2026, 9, 30))),
+        ..CsvOptions::default()
+    };
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "timestamp,weight_kg\n1777622400000,84.2\n1777708800,84.0\n2026050107,83.9\n",
+        &opts,
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(
+        w.iter().map(|x| x.date).collect::<Vec<_>>(),
+        [d(2026, 5, 1), d(2026, 5, 2)]
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("`2026050107`"),
+        "{diags:#?}"
+    );
+    // One readable row: the others are warnings only.
+    let (w, diags) = read(
+        "timestamp,weight_kg\n1777622400000,84.2\n2026-05-02,84.0\n",
+        &window(),
+    );
+    assert_eq!(w.map(|w| w.len()), Some(1));
+    only_warnings(&diags);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+}
+
 #[test]
 fn impossible_weights_are_dropped() {
     let (w, diags) = weights(
@@ -1976,7 +2041,13 @@ fn a_lab_value_that_is_not_a_number_is_quoted_as_written() {
     )
     .unwrap();
     assert!(v.is_empty());
-    assert_eq!(diags.len(), 1, "{diags:#?}");
+    // The row's warning, and the file's error: no row of it reads.
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+    assert!(
+        diags[1].message.starts_with("no row of the file"),
+        "{}",
+        diags[1]
+    );
     assert!(
         diags[0].message.starts_with("not a number in `value`"),
         "{}",
