@@ -1745,7 +1745,19 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
             local(t.naive_local())
         }
     };
-    let zulu = s.strip_suffix(['Z', 'z']).map(|t| format!("{t}+00:00"));
+    // `Z`, or the word `UTC` or `GMT` after the time (`2026-05-01 07:12:00 UTC`, as databases
+    // and some app exports write it: every such row was dropped as an unreadable date).
+    let utc_word = |w: &str| {
+        s.len()
+            .checked_sub(w.len())
+            .filter(|&i| s.is_char_boundary(i) && s[i..].eq_ignore_ascii_case(w))
+            .map(|i| &s[..i])
+    };
+    let zulu = s
+        .strip_suffix(['Z', 'z'])
+        .or_else(|| utc_word(" UTC"))
+        .or_else(|| utc_word(" GMT"))
+        .map(|t| format!("{}+00:00", t.trim_end()));
     let with_offset = zulu.as_deref().unwrap_or(s);
     let has_time = format.contains("%H")
         || format.contains("%I")
@@ -1795,11 +1807,35 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
             }
         }
     }
+    if let Some(d) = basic_date(s, opts.program_span) {
+        return Some(When {
+            date: d,
+            time: None,
+            from_utc: false,
+        });
+    }
     written_out(s, format == "%Y-%m-%d", opts.program_span).map(|(date, time)| When {
         date,
         time,
         from_utc: false,
     })
+}
+
+/// A date in ISO 8601's basic format (`20260501`, ISO 8601-1:2019 §5.2.2.1), as some devices
+/// and databases export it: every such row was dropped as an unreadable date. Only a date within
+/// `span` give or take [`SERIAL_DATE_MARGIN_DAYS`] (as for serial dates) and none without one:
+/// eight digits in a date column are hardly anything else, but a number far from the program
+/// is no date of it.
+fn basic_date(s: &str, span: Option<(NaiveDate, NaiveDate)>) -> Option<NaiveDate> {
+    let b = s.as_bytes();
+    if b.len() != 8 || !b.iter().all(u8::is_ascii_digit) {
+        return None;
+    }
+    let (start, end) = span?;
+    let num = |r: std::ops::Range<usize>| s[r].parse::<u32>().ok();
+    let d = NaiveDate::from_ymd_opt(i32::try_from(num(0..4)?).ok()?, num(4..6)?, num(6..8)?)?;
+    let margin = chrono::Duration::days(SERIAL_DATE_MARGIN_DAYS);
+    (d >= start - margin && d <= end + margin).then_some(d)
 }
 
 /// Dates as apps and spreadsheets write them out, whatever the program's format, each with one
@@ -2331,6 +2367,9 @@ impl Cells<'_> {
                 {
                     self.table
                         .recognised("dotted dates read day first (`01.05.2026` = 1 May 2026)");
+                } else if b.len() == 8 && b.iter().all(u8::is_ascii_digit) {
+                    self.table
+                        .recognised("dates in ISO 8601's basic format (`20260501`)");
                 } else if b.len() >= 10
                     && b[..4].iter().all(u8::is_ascii_digit)
                     && b[4] == b'/'
@@ -3531,6 +3570,28 @@ mod tests {
         );
         assert!(parse_when("2027-02-30T07:00:00Z", &opts).is_none());
         assert!(LocalZone::parse("Mars/Olympus").is_none());
+        // The word UTC or GMT after the time is an offset of zero, like `Z`.
+        assert_eq!(
+            day("2027-07-02 02:30:00 UTC", &ny),
+            some("2027-07-01", "22:30:00")
+        );
+        assert_eq!(
+            day("2027-07-02 02:30 gmt", &opts),
+            some("2027-07-02", "02:30:00")
+        );
+        assert!(parse_when("2027-07-02 02:30:00 CET", &opts).is_none());
+        // ISO 8601's basic format, only near the program's dates.
+        let program = CsvOptions {
+            program_span: Some((
+                NaiveDate::from_ymd_opt(2027, 1, 1).unwrap(),
+                NaiveDate::from_ymd_opt(2027, 6, 30).unwrap(),
+            )),
+            ..Default::default()
+        };
+        assert_eq!(day("20270301", &program), Some(("2027-03-01".into(), None)));
+        assert!(parse_when("20270301", &opts).is_none());
+        assert!(parse_when("20350301", &program).is_none());
+        assert!(parse_when("20270230", &program).is_none());
     }
 
     #[test]
