@@ -3,8 +3,9 @@
 //!
 //! Source of every MET value: Ainsworth BE, Haskell WL, Herrmann SD, et al. "2011 Compendium of
 //! Physical Activities: a second update of codes and MET values." Med Sci Sports Exerc
-//! 2011;43(8):1575–1581. The values were checked against a machine-readable copy of the official
-//! 2011 tables. The codes here are our own; the Compendium code and edition are kept with each so
+//! 2011;43(8):1575–1581. Every value and code was checked against a machine-readable copy of the
+//! 2011 tables (`compendiumofphysicalactivities.csv` of github.com/andyreagan/
+//! compendium-of-physical-activity, commit 5d0a5d1). The codes here are our own; the Compendium code and edition are kept with each so
 //! a report can say where a MET came from.
 
 /// One row of the activity table.
@@ -66,6 +67,14 @@ static TABLE: &[ActivityDef] = &[
         "03020",
     ),
     a(
+        "badminton",
+        "badminton, social singles and doubles, general",
+        5.5,
+        "15030",
+    ),
+    a("basketball", "basketball, general", 6.5, "15055"),
+    a("boxing_punching_bag", "boxing, punching bag", 5.5, "15110"),
+    a(
         "calisthenics_moderate",
         "calisthenics, moderate effort",
         3.8,
@@ -76,6 +85,18 @@ static TABLE: &[ActivityDef] = &[
         "calisthenics, vigorous (push-ups, jumping jacks)",
         8.0,
         "02020",
+    ),
+    a(
+        "circuit_training_moderate",
+        "circuit training, moderate effort",
+        4.3,
+        "02035",
+    ),
+    a(
+        "circuit_training_vigorous",
+        "circuit training with some aerobic movement and minimal rest, vigorous",
+        8.0,
+        "02040",
     ),
     a(
         "cycling_10_12mph",
@@ -127,6 +148,7 @@ static TABLE: &[ActivityDef] = &[
         "08245",
     ),
     a("golf", "golf, general", 4.8, "15255"),
+    a("hiking", "hiking, cross country", 6.0, "17080"),
     a(
         "housework_light",
         "house cleaning, light (tidying, laundry)",
@@ -140,6 +162,7 @@ static TABLE: &[ActivityDef] = &[
         "05030",
     ),
     a("jogging", "jogging, general", 7.0, "12020"),
+    a("kayaking", "kayaking, moderate effort", 5.0, "18100"),
     a("mowing_lawn", "mowing the lawn, general", 5.5, "08095"),
     a("pilates", "pilates, general", 3.0, "02105"),
     a(
@@ -147,6 +170,24 @@ static TABLE: &[ActivityDef] = &[
         "raking lawn or leaves, moderate effort",
         3.8,
         "08160",
+    ),
+    a(
+        "rock_climbing",
+        "rock climbing, ascending or traversing, low-to-moderate difficulty",
+        5.8,
+        "15537",
+    ),
+    a(
+        "rowing_machine_moderate",
+        "rowing machine, general, moderate effort",
+        4.8,
+        "02071",
+    ),
+    a(
+        "rowing_machine_vigorous",
+        "rowing machine, general, vigorous effort",
+        6.0,
+        "02070",
     ),
     a(
         "running_10mph",
@@ -187,8 +228,24 @@ static TABLE: &[ActivityDef] = &[
         12.8,
         "12110",
     ),
-    // From memory (not in the confirmed excerpt of the 2011 tables): 12150 running, general, 8.0.
+    // 12150 "running, (Taylor code 200)", 8.0: the Compendium's general running entry.
     a("running_general", "running, general", 8.0, "12150"),
+    a("skating_ice", "ice skating, general", 7.0, "19030"),
+    a("skating_roller", "roller skating", 7.0, "15590"),
+    a(
+        "skiing_cross_country",
+        "cross-country skiing, moderate speed and effort, general",
+        9.0,
+        "19090",
+    ),
+    a(
+        "skiing_cross_country_light",
+        "cross-country skiing, slow or light effort",
+        6.8,
+        "19080",
+    ),
+    a("skiing_general", "skiing, general", 7.0, "19075"),
+    a("soccer_casual", "soccer, casual, general", 7.0, "15610"),
     a("stair_climbing", "climbing stairs, slow pace", 4.0, "17133"),
     a(
         "stair_climbing_fast",
@@ -208,6 +265,7 @@ static TABLE: &[ActivityDef] = &[
         6.0,
         "02050",
     ),
+    a("stretching", "stretching, mild", 2.3, "02101"),
     a(
         "swimming_breaststroke",
         "swimming, breaststroke, recreational",
@@ -621,6 +679,59 @@ pub fn recognise(norm: &str) -> Option<&'static ActivityDef> {
             Effort::Vigorous | Effort::Brisk | Effort::VeryBrisk => "calisthenics_vigorous",
             _ => "calisthenics_moderate",
         }
+    } else if has(&["hiit"]) || has(&["interval", "intervals"]) && !has(&["walk", "walking"]) {
+        // High-intensity interval training: the Compendium's vigorous circuit training
+        // (aerobic movement with minimal rest) is its nearest entry.
+        "circuit_training_vigorous"
+    } else if starts(&["circuit", "bootcamp"]) || has(&["boot"]) && has(&["camp"]) {
+        match effort {
+            Effort::Vigorous | Effort::Brisk | Effort::VeryBrisk => "circuit_training_vigorous",
+            _ => "circuit_training_moderate",
+        }
+    } else if starts(&["rower", "erg"])
+        || starts(&["rowing"]) && has(&["machine", "indoor", "stationary", "ergometer"])
+    {
+        match effort {
+            Effort::Vigorous | Effort::Brisk | Effort::VeryBrisk => "rowing_machine_vigorous",
+            _ => "rowing_machine_moderate",
+        }
+    } else if starts(&["ski"]) {
+        if has(&["cross", "country", "nordic", "xc"]) || starts(&["crosscountry"]) {
+            match effort {
+                Effort::Light | Effort::Slow | Effort::VerySlow | Effort::Leisure => {
+                    "skiing_cross_country_light"
+                }
+                _ => "skiing_cross_country",
+            }
+        } else {
+            "skiing_general"
+        }
+    } else if starts(&["hik", "hike"]) {
+        "hiking"
+    } else if starts(&["stretch", "mobility", "flexibility"]) {
+        "stretching"
+    } else if starts(&["badminton"]) {
+        "badminton"
+    } else if starts(&["basketball"]) {
+        "basketball"
+    } else if starts(&["soccer"]) {
+        "soccer_casual"
+    } else if has(&["boxing"]) {
+        // Fitness boxing: the punching bag (5.5 MET), not a bout in the ring (12.8): where a
+        // label leaves the effort open, the lower value, so logged exercise never inflates
+        // the expenditure the report's advice rests on.
+        "boxing_punching_bag"
+    } else if starts(&["climb", "boulder"]) && !has(&["hill", "hills"]) {
+        // The low-to-moderate entry, for the same reason.
+        "rock_climbing"
+    } else if starts(&["skat", "rollerblad", "inline"]) {
+        if has(&["ice"]) {
+            "skating_ice"
+        } else {
+            "skating_roller"
+        }
+    } else if starts(&["kayak"]) {
+        "kayaking"
     } else if starts(&["danc"]) {
         "dancing"
     } else if starts(&["golf"]) {
@@ -675,6 +786,17 @@ pub const NATURAL_LABELS: &[&str] = &[
     "tennis",
     "golf",
     "tai chi",
+    "hiking",
+    "rowing machine",
+    "circuit training",
+    "stretching",
+    "cross-country skiing",
+    "basketball",
+    "badminton",
+    "soccer",
+    "rock climbing",
+    "skating",
+    "kayaking",
 ];
 
 /// Up to `n` known labels nearest to `label` (edit distance between normalised labels), for
@@ -745,6 +867,14 @@ mod tests {
         assert_eq!(lookup("swimming_laps_moderate").unwrap().met, 5.8);
         assert_eq!(lookup("yoga_hatha").unwrap().met, 2.5);
         assert_eq!(lookup("cycling_leisure").unwrap().compendium_code, "01010");
+        let hiking = lookup("hiking").unwrap();
+        assert_eq!((hiking.met, hiking.compendium_code), (6.0, "17080"));
+        let rowing = lookup("rowing_machine_moderate").unwrap();
+        assert_eq!((rowing.met, rowing.compendium_code), (4.8, "02071"));
+        let stretching = lookup("stretching").unwrap();
+        assert_eq!((stretching.met, stretching.compendium_code), (2.3, "02101"));
+        let hiit = lookup("circuit_training_vigorous").unwrap();
+        assert_eq!((hiit.met, hiit.compendium_code), (8.0, "02040"));
     }
 
     fn code_of(label: &str) -> Option<&'static str> {
@@ -781,7 +911,46 @@ mod tests {
         ] {
             assert_eq!(code_of(label), Some(code), "{label}");
         }
-        for label in ["zumba-ish", "walking 9 mph", "hiking", "", "sleep"] {
+        // Labels of fitness trackers' activity exports (the common ones that were unknown).
+        for (label, code) in [
+            ("Hiking", "hiking"),
+            ("HIIT", "circuit_training_vigorous"),
+            (
+                "High Intensity Interval Training",
+                "circuit_training_vigorous",
+            ),
+            ("Circuit training", "circuit_training_moderate"),
+            ("Rowing Machine", "rowing_machine_moderate"),
+            ("indoor rowing, vigorous", "rowing_machine_vigorous"),
+            ("Cross Country Skiing", "skiing_cross_country"),
+            ("Skiing", "skiing_general"),
+            ("Badminton", "badminton"),
+            ("Basketball", "basketball"),
+            ("Soccer", "soccer_casual"),
+            ("Stretching", "stretching"),
+            ("Climbing", "rock_climbing"),
+            ("Bouldering", "rock_climbing"),
+            ("Ice Skating", "skating_ice"),
+            ("Inline skating", "skating_roller"),
+            ("Kayaking", "kayaking"),
+            ("Boxing", "boxing_punching_bag"),
+            // Earlier rules still win: stairs, intervals of walking.
+            ("Stair Stepper", "stair_climbing"),
+            ("walking intervals", "walking_3mph"),
+        ] {
+            assert_eq!(code_of(label), Some(code), "{label}");
+        }
+        // Left unknown: `football` (soccer, or the American game?), `rowing` on the water or a
+        // machine, hill climbing.
+        for label in [
+            "zumba-ish",
+            "walking 9 mph",
+            "",
+            "sleep",
+            "football",
+            "rowing",
+            "hill climbing",
+        ] {
             assert_eq!(code_of(label), None, "{label}");
         }
         for label in NATURAL_LABELS {
