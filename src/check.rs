@@ -24,6 +24,10 @@ pub struct CheckReport {
     /// [`crate::cmd::check`], which knows the options): a run stops on them, with exit code 6,
     /// before any participant is computed.
     pub ledger: Vec<Diagnostic>,
+    /// Problems of the program's own report templates that show only on a page made from them
+    /// (filled by [`crate::cmd::check`]): a participant's page without the cautions, on which a
+    /// run stops with exit code 6 and publishes nothing.
+    pub templates: Vec<Diagnostic>,
 }
 
 impl CheckReport {
@@ -50,6 +54,7 @@ impl CheckReport {
             .iter()
             .chain(&self.discovery)
             .chain(&self.ledger)
+            .chain(&self.templates)
             .chain(self.participants.iter().flat_map(|p| &p.diagnostics))
     }
 
@@ -107,6 +112,7 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
             participants: Vec::new(),
             discovery: Vec::new(),
             ledger: Vec::new(),
+            templates: Vec::new(),
         };
     };
     let (dirs, discovery) = participant::discover(prog);
@@ -131,5 +137,6 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
         participants,
         discovery,
         ledger: Vec::new(),
+        templates: Vec::new(),
     }
 }

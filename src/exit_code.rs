@@ -16,7 +16,8 @@ pub const PARTICIPANT_ERRORS: i32 = 4;
 /// modules' results and reports were still written.
 pub const MODULE_FAILED: i32 = 5;
 /// Writing outputs failed; the previous outputs were left as they were. From `check`: the
-/// group-report ledger's folder cannot be used, so a run would stop before computing anything.
+/// group-report ledger's folder cannot be used, so a run would stop before computing anything,
+/// or a participant page made from the program's own templates lacks the cautions.
 pub const OUTPUT_FAILED: i32 = 6;
 /// Another run holds the lock on the output folder.
 pub const LOCKED: i32 = 7;

@@ -27,7 +27,11 @@ pub fn exit_code_of(report: &CheckReport) -> i32 {
     exit_code::Outcome {
         program_invalid: report.program_invalid(),
         participants_left_out: left_out,
-        output_unusable: report.ledger.iter().any(|d| d.severity == Severity::Error),
+        output_unusable: report
+            .ledger
+            .iter()
+            .chain(&report.templates)
+            .any(|d| d.severity == Severity::Error),
         module_failures: 0,
         warnings,
     }
@@ -298,6 +302,13 @@ pub fn write_report_with(
             writeln!(out, "{d}")?;
         }
     }
+    if !report.templates.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "report templates:")?;
+        for d in &report.templates {
+            writeln!(out, "{d}")?;
+        }
+    }
     let mut clean = 0;
     for p in &report.participants {
         let (e, w) = diag::count(&p.diagnostics);
@@ -497,6 +508,7 @@ pub fn run_check_with(
             report.participants.clear();
             report.discovery.clear();
         } else {
+            report.templates = template_problems(prog, &report.participants, as_of);
             match ledger_problems(prog, opts.state.as_deref(), opts.out.as_deref()) {
                 Ok(diags) => report.ledger = diags,
                 // `--state` refused as `run` refuses it: a wrong command line (exit 2).
@@ -525,6 +537,52 @@ pub fn run_check_with(
         // so the code says what the inputs are, as other Unix filters do on a closed pipe.
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => exit_code_of(&report),
         Err(_) => exit_code::OUTPUT_FAILED,
+    }
+}
+
+/// What a run finds wrong on a page the program's own templates make, found as the run finds
+/// it: a participant page without the cautions ([`crate::report::check_participant_cautions`],
+/// the check every run makes before it publishes), reported in the run's words. A run stopped
+/// on it with exit code 6 while `check` had passed the program. The page is made for the first
+/// usable participant (the cautions are the same on every page of a program), in the period a
+/// run without `--period` reports.
+fn template_problems(
+    prog: &crate::program::Program,
+    participants: &[crate::participant::LoadedParticipant],
+    as_of: chrono::NaiveDate,
+) -> Vec<Diagnostic> {
+    let Some(data) = participants.iter().find_map(|p| p.data.as_ref()) else {
+        return Vec::new();
+    };
+    let (Ok(templates), Ok((modules, _))) = (
+        crate::report::templates::TemplateSet::load(prog),
+        crate::modules::build_module_set(prog),
+    ) else {
+        return Vec::new();
+    };
+    let Ok(period) =
+        crate::run::plan::resolve_period(prog, as_of, &crate::run::plan::RunOptions::default())
+    else {
+        return Vec::new();
+    };
+    let scope = crate::report::Scope {
+        program: prog,
+        modules: &modules,
+        period,
+        as_of,
+    };
+    match crate::report::check_participant_cautions(&templates, &scope, data) {
+        Ok(()) => Vec::new(),
+        Err(e) => vec![
+            Diagnostic::error(
+                "program.yaml",
+                // The run's words: `RunError::Render` of the same error.
+                crate::run::RunError::Render(format!("participant {}: {e}", data.profile.id))
+                    .to_string(),
+            )
+            .field("report.templates")
+            .hint("`run` stops on this template with exit code 6 and publishes nothing"),
+        ],
     }
 }
 
@@ -808,9 +866,18 @@ mod tests {
         let t = tmp.path().join("templates");
         fs::create_dir(&t).unwrap();
         // A dumped template, edited: clean, then with an unclosed block, then with a script.
+        // (Clean means with the cautions: without them a run stops too, and so does `check`.)
         fs::write(
             t.join("participant.html.hbs"),
             "<p>{{participant.id}}</p>\n",
+        )
+        .unwrap();
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::OUTPUT_FAILED, "{out}");
+        assert!(out.contains("does not show the cautions"), "{out}");
+        fs::write(
+            t.join("participant.html.hbs"),
+            "<p>{{participant.id}}</p>\n{{> cautions}}\n",
         )
         .unwrap();
         let (code, out) = run(tmp.path());

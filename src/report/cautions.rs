@@ -6,7 +6,7 @@ pub fn participant(t: &super::guidance::Thresholds) -> Vec<String> {
         "This report is information about your progress in the program, not medical advice. It does not diagnose or treat any condition.".into(),
         "Figures are estimates from your own records and from published equations and models; real bodies vary, and every figure has some uncertainty.".into(),
         format!(
-            "Very low intakes (below about {} kcal a day for women or {} for men), losing or gaining more than about 1 kg (2 lb) a week for several weeks, a BMI under {} (or under {} while still losing; {} from age 70), and lab values in the prediabetes or diabetes range should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy.",
+            "Very low intakes (below about {} kcal a day for women or {} for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about 1 kg (2 lb) a week for several weeks, a BMI under {} (or under {} while still losing; {} from age 70), and lab values in the prediabetes or diabetes range should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy.",
             super::format::int(t.floor_female),
             super::format::int(t.floor_male),
             bmi(t.underweight_bmi_below),

@@ -83,6 +83,9 @@ pub fn reason(code: &str) -> &'static str {
             "At the intake the weight trend implies, weight would fall into the underweight range, or further within it, before the forecast's end"
         }
         "low_intake" => "Logged intake below the usual floor for eating less without supervision",
+        "below_resting_intake" => {
+            "Intake below resting energy expenditure for weeks, on the weight trend's evidence (alone, or agreeing with the food log)"
+        }
         "low_bmi" => {
             "BMI in the underweight range, or low for the person's age while weight is still coming down"
         }
@@ -499,6 +502,7 @@ mod tests {
             "fast_gain",
             "weigh_in_step",
             "medication_review",
+            "below_resting_intake",
         ] {
             let r = super::reason(code);
             assert!(!r.chars().any(|c| c.is_ascii_digit()), "{code}: {r}");

@@ -8,7 +8,7 @@
 //! | # | state | phase | the report offers |
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
-//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
+//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
 //! | 3a | the same at a BMI below `low_bmi_losing_below` (20; from age 70 the higher `low_bmi_losing_below_70_plus`, 22) | `maintain` | that a rise at that BMI is no cause for concern; nothing to stop it |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
@@ -51,7 +51,7 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 10] = [
+pub const HOLDING_FLAGS: [&str; 11] = [
     "fast_loss",
     "fast_gain",
     // Clinical only in the period a step in the weigh-ins is first found: it may be a real
@@ -64,6 +64,9 @@ pub const HOLDING_FLAGS: [&str; 10] = [
     // At the implied intake, weight heads below BMI 18.5 before the forecast's end (energy).
     "forecast_underweight",
     "low_intake",
+    // Intake below resting energy for four weeks on the weight trend's evidence (outcomes
+    // module): eating less, or moving more, would take it further down.
+    "below_resting_intake",
     "low_bmi",
     "medication_review",
     "pregnancy",

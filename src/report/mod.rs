@@ -347,13 +347,8 @@ fn check_cautions(
     }
 }
 
-/// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes). The PDF
-/// is laid out from the HTML, so both always say the same.
-pub fn render_participant(
-    templates: &TemplateSet,
-    report: &ParticipantReport,
-    formats: &[Format],
-) -> Result<Vec<(&'static str, Vec<u8>)>, RenderError> {
+/// A participant report's charts by the name templates print them with (`{{chart "weight"}}`).
+fn participant_charts(report: &ParticipantReport) -> BTreeMap<String, Chart> {
     let mut charts = BTreeMap::new();
     charts.insert("weight".to_string(), report.weight_chart.clone());
     if let Some(c) = &report.energy_chart {
@@ -362,6 +357,40 @@ pub fn render_participant(
     if let Some(c) = &report.activity_chart {
         charts.insert("activity".into(), c.clone());
     }
+    charts
+}
+
+/// For `check`: whether the participant page the program's own templates make shows the
+/// cautions, judged by the check a run makes before it publishes ([`check_cautions`], the
+/// same words). The page is made from `data`'s report model built without module results
+/// (`check` computes nothing), with the cautions the program's settings give, which are the
+/// run's. `Ok` with the built-in templates, and when that page cannot be made at all (a
+/// template that needs a module's figures): only a run, with the figures, can tell then.
+pub fn check_participant_cautions(
+    templates: &TemplateSet,
+    plan: &Scope<'_>,
+    data: &ParticipantData,
+) -> Result<(), RenderError> {
+    if !templates.is_overridden() {
+        return Ok(());
+    }
+    let report = participant::build(plan, data, &ModuleResults::default(), &[]);
+    let charts = participant_charts(&report);
+    let drawn = draw_all(&charts);
+    match templates.render("participant.html", &report.ctx, svg_map(&drawn)) {
+        Ok(html) => check_cautions(templates, "participant.html", &html, &report.ctx.cautions),
+        Err(_) => Ok(()),
+    }
+}
+
+/// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes). The PDF
+/// is laid out from the HTML, so both always say the same.
+pub fn render_participant(
+    templates: &TemplateSet,
+    report: &ParticipantReport,
+    formats: &[Format],
+) -> Result<Vec<(&'static str, Vec<u8>)>, RenderError> {
+    let charts = participant_charts(report);
     let drawn = draw_all(&charts);
     let svgs = svg_map(&drawn);
     let c = &report.ctx;

@@ -2239,6 +2239,25 @@ fn a_template_of_ones_own_without_the_cautions_publishes_nothing() {
             out.stderr
         );
         assert!(!prog.dir.join("reports/participants").exists(), "{what}");
+        // `check` finds the same defect, in the run's words and with its exit code: it passed
+        // this program (exit 0) while every run of it stopped.
+        let check = prog.run(&["check", "{dir}", "--as-of", AS_OF]);
+        assert_eq!(check.code, 6, "{what}: {}", check.stdout);
+        let at = out
+            .stderr
+            .find("rendering failed: participant")
+            .unwrap_or_else(|| panic!("{what}: {}", out.stderr));
+        let words = out.stderr[at..].lines().next().unwrap();
+        assert!(
+            words.ends_with("nothing was published"),
+            "{what}: {}",
+            out.stderr
+        );
+        assert!(
+            check.stdout.contains(words),
+            "{what}: the run said\n{words}\ncheck said\n{}",
+            check.stdout
+        );
     }
     // The cautions written out in a list of one's own, without the partial, are enough.
     let prog = ProgramTest::fixture("report-small");
@@ -2258,6 +2277,9 @@ fn a_template_of_ones_own_without_the_cautions_publishes_nothing() {
     use_template_folder(&prog);
     let out = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html,pdf"]);
     assert_eq!(out.code, 0, "{}", out.stderr);
+    let check = prog.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 0, "{}", check.stdout);
+    assert!(!check.stdout.contains("caution"), "{}", check.stdout);
 }
 
 /// The group report's cautions too (de-identified, not medical advice; local rules and licensed

@@ -61,9 +61,28 @@
 //! * `lab_diabetes_range` (clinical) / `lab_prediabetes_range` (notice): judged on the latest
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
-//!   `fast_loss`, `low_intake` or `very_low_intake` was raised, or the `energy` module (when it
+//!   `fast_loss`, `low_intake`, `very_low_intake` or `below_resting_intake` was raised, or the `energy` module (when it
 //!   runs before this one, as in the usual order) raised `very_low_implied_intake`: the weight
 //!   trend implies an intake below a very-low-calorie diet's (risk of low blood sugar).
+//! * `below_resting_intake` (clinical): over the last [`BELOW_RESTING_WINDOW_DAYS`] (28) days
+//!   of the period (from enrolment when that is later; at least [`BELOW_RESTING_MIN_DAYS`]), intake was below the person's resting energy expenditure (Mifflin–St Jeor
+//!   at the current weight and age: Mifflin et al. 1990, Am J Clin Nutr 51:241), on the weight
+//!   trend's evidence. Read from the `energy` module's intake implied by the weight trend (its
+//!   95 % interval; the module runs before this one in the usual order, and without it the
+//!   flag is never raised). Raised when either
+//!   (a) the implied intake's *upper* 95 % bound is below resting energy: the trend alone
+//!   shows it, food log or not; or
+//!   (b) logged intake is below resting energy on more than half of at least
+//!   [`BELOW_RESTING_MIN_LOGGED_DAYS`] logged days in the window *and* the implied intake's
+//!   central value is below it too (the weight trend agrees with the log).
+//!   Logged intake alone never raises it: food logs leave out 10–45 % of intake (Trabulsi &
+//!   Schoeller 2001, Am J Physiol Endocrinol Metab 281:E891, from memory), and a logged
+//!   intake below about 1.35 × resting energy is the usual sign of under-reporting rather than
+//!   of what a weight-stable adult eats (the Goldberg cut-off: Goldberg et al. 1991, Eur J Clin
+//!   Nutr 45:569; Black 2000, Int J Obes 24:1119; from memory), so a log below resting energy
+//!   on its own would flag mostly people who log too little, not people who eat too little.
+//!   When the energy module withheld the implied intake as below a very-low-calorie diet's, its
+//!   own `very_low_implied_intake` flag stands for this one.
 //! * `pregnancy` (clinical): the profile carries `pregnant`. Loss targets, the intake floors
 //!   and the energy model are for adults who are not pregnant, so the report holds every
 //!   suggestion and points to a clinician.
@@ -96,6 +115,8 @@ pub const MODULE_ID: &str = "outcomes";
 pub mod view;
 
 use cohortpress_metric_api::view::{ModuleView, TableRow};
+use cohortpress_metric_energy::mifflin_st_jeor;
+use cohortpress_metric_energy::view::EnergyView;
 use cohortpress_metric_trend::view::{REAL_STEPS_FLAG, Status, TrendView, step_shift_after};
 use view::{
     BmiCategory, CurrentWeightSource, LABS_LABEL, LabCategory, LabRow, MILESTONES_LABEL,
@@ -116,6 +137,18 @@ pub const MIN_INTAKE_DAYS: usize = 4;
 /// (read from its output when it ran before this module; this module does not require it).
 const ENERGY_MODULE: &str = "energy";
 const ENERGY_VERY_LOW_IMPLIED_INTAKE: &str = "very_low_implied_intake";
+
+/// Days at the end of the period over which `below_resting_intake` is judged: four whole
+/// weeks, the default `window_days` of the `energy` module, whose implied intake is the mean
+/// over that window ("for weeks": program choice).
+pub const BELOW_RESTING_WINDOW_DAYS: i64 = 28;
+/// Fewest days in that window (after enrolment) for `below_resting_intake` to be judged at
+/// all: two weeks, so that "for weeks" holds for someone who enrolled less than four weeks
+/// before the period's end (program choice).
+pub const BELOW_RESTING_MIN_DAYS: i64 = 14;
+/// Fewest logged days in that window for the food log to count towards
+/// `below_resting_intake` (two a week on average; program choice).
+pub const BELOW_RESTING_MIN_LOGGED_DAYS: usize = 8;
 
 /// Profile flag for people who take glucose-lowering medication.
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
@@ -731,7 +764,13 @@ impl MetricModule for OutcomesModule {
                     OutcomesFlag::MedicationReview.as_str(),
                     "flag",
                     "",
-                    "glucose-lowering medicine with fast loss, low intake, or a trend that implies a very low intake",
+                    "glucose-lowering medicine with fast loss, low intake, intake below resting energy, or a trend that implies a very low intake",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::BelowRestingIntake.as_str(),
+                    "flag",
+                    "",
+                    "intake below resting energy (Mifflin-St Jeor) over the last 28 days: the upper 95 % bound of the intake the weight trend implies is below it, or the food log is below it on most logged days and the implied intake agrees (energy module)",
                 ),
             ],
             requires: vec![TREND_MODULE.into()],
@@ -767,6 +806,7 @@ impl MetricModule for OutcomesModule {
         let fast = push_fast_loss_flag(&mut output, ctx, &w.levels);
         push_fast_gain_flag(&mut output, ctx, &w.levels);
         let low_intake = push_intake_flags(&mut output, ctx, data);
+        let below_resting = push_below_resting_flag(&mut output, ctx, data, w.current);
         push_low_bmi_flag(&mut output, ctx, bmi1, &w, profile.age_on(ctx.period.to));
         push_lab_flags(&mut output, &labs, profile.sex);
         // The energy module, when it ran before this one, says when the weight trend implies
@@ -778,9 +818,9 @@ impl MetricModule for OutcomesModule {
                 .any(|f| f.code == ENERGY_VERY_LOW_IMPLIED_INTAKE)
         });
         if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG)
-            && (fast || low_intake || implied_low)
+            && (fast || low_intake || below_resting || implied_low)
         {
-            push_medication_flag(&mut output, fast, low_intake, implied_low);
+            push_medication_flag(&mut output, fast, low_intake, below_resting, implied_low);
         }
         if profile.flags.iter().any(|f| f == PREGNANCY_FLAG) {
             // Weight-loss targets, the intake floors and the energy model are for adults who
@@ -1191,6 +1231,82 @@ fn push_intake_flags(
     }
 }
 
+/// The `below_resting_intake` flag (see the module docs); returns whether it was raised.
+fn push_below_resting_flag(
+    output: &mut ModuleOutput,
+    ctx: &ModuleContext,
+    data: &ParticipantData,
+    current_kg: Option<f64>,
+) -> bool {
+    let profile = &data.profile;
+    let to = ctx.period.to;
+    let (Some(kg), Some(energy)) = (current_kg, ctx.earlier.get(ENERGY_MODULE)) else {
+        return false;
+    };
+    let Ok(energy) = EnergyView::from_output(energy).inspect_err(|e| debug_assert!(false, "{e}"))
+    else {
+        return false;
+    };
+    let implied = energy.implied_intake_kcal_per_day;
+    let (Some(central), Some(upper)) = (implied.value, implied.upper) else {
+        return false;
+    };
+    let height_cm = profile.height.cm();
+    if height_cm <= 0.0 {
+        return false;
+    }
+    // Resting energy expenditure, kcal/d (Mifflin et al. 1990, Am J Clin Nutr 51:241), at the
+    // current trend weight and the age at the period's end.
+    let rmr = mifflin_st_jeor(profile.sex, kg, height_cm, profile.age_on(to));
+    let from = (to - Duration::days(BELOW_RESTING_WINDOW_DAYS - 1)).max(profile.enrolled);
+    // "For weeks": a window cut short by a recent enrolment must still hold two of them.
+    let days = (to - from).num_days() + 1;
+    if days < BELOW_RESTING_MIN_DAYS {
+        return false;
+    }
+    let logged: Vec<f64> = data
+        .intake
+        .iter()
+        .filter(|i| i.date >= from && i.date <= to)
+        .map(|i| i.kcal)
+        .collect();
+    let below = logged.iter().filter(|k| **k < rmr).count();
+    let interval = format!(
+        "about {central:.0} kcal a day (95 % interval {:.0} to {upper:.0})",
+        implied.lower.unwrap_or(0.0)
+    );
+    let window = format!("{days} days from {from} to {to}");
+    let message = if upper < rmr {
+        format!(
+            "Over the last {window} the weight trend implies an intake of \
+             {interval}: even the top of that interval is below the resting energy expenditure \
+             estimated at the current weight (about {rmr:.0} kcal a day, Mifflin–St Jeor). \
+             Eating below resting energy for weeks is a warning sign; please review the intake \
+             and the loss with a licensed clinician."
+        )
+    } else if central < rmr
+        && logged.len() >= BELOW_RESTING_MIN_LOGGED_DAYS
+        && 2 * below > logged.len()
+    {
+        format!(
+            "Over the last {window} logged intake was below the resting energy \
+             expenditure estimated at the current weight (about {rmr:.0} kcal a day, \
+             Mifflin–St Jeor) on {below} of {} logged days, and the weight trend agrees: it \
+             implies an intake of {interval}. Eating below resting energy for weeks is a \
+             warning sign; please review the intake and the loss with a licensed clinician.",
+            logged.len()
+        )
+    } else {
+        return false;
+    };
+    output.push_flag(
+        OutcomesFlag::BelowRestingIntake.as_str(),
+        FlagSeverity::Clinical,
+        message,
+    );
+    true
+}
+
 /// The `low_bmi` flag: current BMI in the WHO underweight class, or below
 /// `low_bmi_losing_below` while the trend still falls (see the module docs).
 fn push_low_bmi_flag(
@@ -1309,6 +1425,7 @@ fn push_medication_flag(
     output: &mut ModuleOutput,
     fast: bool,
     low_intake: bool,
+    below_resting: bool,
     implied_low: bool,
 ) {
     let mut causes = Vec::new();
@@ -1317,6 +1434,8 @@ fn push_medication_flag(
     }
     if low_intake {
         causes.push("low logged intake");
+    } else if below_resting {
+        causes.push("an intake below resting energy for weeks");
     } else if implied_low {
         causes.push("a weight trend that only a very low intake would explain");
     }

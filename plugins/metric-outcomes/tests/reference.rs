@@ -854,7 +854,8 @@ fn medication_review_with_glucose_lowering_medicine() {
     // when it runs first) asks for a review too: the 58 kg woman losing 0.95 kg a week of the
     // energy module's test got `very_low_implied_intake` but no medication review.
     let mut with_energy = c(steady);
-    let mut energy = ModuleOutput::default();
+    // (An energy output as the module writes it: the implied intake withheld, the flag raised.)
+    let mut energy = energy_output_of(Interval::default());
     energy.push_flag(
         "very_low_implied_intake",
         FlagSeverity::Clinical,
@@ -1008,5 +1009,154 @@ fn the_underweight_cut_off_is_a_setting() {
     assert!(
         m.contains("about 18.8 kg/m², below 19, the program's cut-off for a low BMI."),
         "{m}"
+    );
+}
+
+/// An `energy` output whose only informative values are the implied intake and its 95 %
+/// interval over the last 28 days (what `below_resting_intake` reads).
+fn energy_output(implied: f64, lower: f64, upper: f64) -> ModuleOutput {
+    energy_output_of(Interval {
+        value: Some(implied),
+        lower: Some(lower),
+        upper: Some(upper),
+    })
+}
+
+/// The same with the implied intake as given (all missing: withheld).
+fn energy_output_of(implied: Interval) -> ModuleOutput {
+    use cohortpress_metric_energy::RestingEquation;
+    use cohortpress_metric_energy::view::{BodyFatSource, EnergyView};
+    EnergyView {
+        rmr_kcal_per_day: Interval::default(),
+        activity_net_kcal_per_day: Interval::default(),
+        tdee_kcal_per_day: Interval::default(),
+        pal_estimate: None,
+        logged_intake_kcal_per_day: Interval::default(),
+        logged_days: None,
+        implied_intake_kcal_per_day: implied,
+        implied_intake_lower_kcal_per_day: implied.lower,
+        implied_intake_upper_kcal_per_day: implied.upper,
+        underreporting_percent: Interval::default(),
+        intake_gap_kcal_per_day: Interval::default(),
+        energy_balance_kcal_per_day: Interval::default(),
+        forecast_weight_at_end_kg: Interval::default(),
+        steady_state_weight_kg: Interval::default(),
+        body_fat_percent_baseline: Interval::default(),
+        rmr_equation: RestingEquation::MifflinStJeor,
+        body_fat_source: BodyFatSource::Jackson2002,
+        forecast_weight: cohortpress_metric_api::Series {
+            name: "forecast_weight".into(),
+            unit: "kg".into(),
+            step: "daily".into(),
+            label: "Forecast weight".into(),
+            points: vec![],
+        },
+        weekly_energy: vec![],
+        options: vec![],
+        plateau_assessment: vec![],
+        flags: vec![],
+    }
+    .to_output()
+}
+
+/// Intake held below resting energy for four weeks is flagged for a clinician, on the weight
+/// trend's evidence: its implied intake's upper bound below resting energy (no food log
+/// needed), or a food log below resting energy on most days that the trend's central estimate
+/// agrees with. A food log below resting energy that the trend contradicts (the usual
+/// under-reporting) raises nothing, nor does a trend interval that reaches above it.
+#[test]
+fn intake_below_resting_energy_for_weeks_is_a_clinical_flag() {
+    // Woman, 165 cm, 50 at enrolment; the period is days 30–60, the window days 33–60. The
+    // trend's level on day 60 is 80 − 0.07 × 60 = 75.8 kg; age on day 60 is 50 + 60/365.2425.
+    // Resting energy by Mifflin–St Jeor (Mifflin et al. 1990, Am J Clin Nutr 51:241;
+    // women: 10 W + 6.25 H − 5 A − 161): 758 + 1031.25 − 250.82 − 161 = 1377.4 kcal/d [D].
+    let mut base = participant(Sex::Female, 165.0);
+    base.weights = vec![weigh(day(0), 80.0)];
+    let trend = || trend_output(60, 60, -0.49, |k| 80.0 - 0.07 * k as f64);
+    let with = |energy: Option<ModuleOutput>| {
+        let mut c = ctx(day(30), day(60), Some(trend()));
+        if let Some(e) = energy {
+            c.earlier.insert("energy".into(), e);
+        }
+        c
+    };
+    let flag = |out: &ModuleOutput| {
+        out.flags
+            .iter()
+            .find(|f| f.code == "below_resting_intake")
+            .map(|f| (f.severity, f.message.clone()))
+    };
+    // (a) The whole interval below resting energy: raised without any food log.
+    let out = run(&with(Some(energy_output(1100.0, 900.0, 1300.0))), &base);
+    let (severity, message) = flag(&out).expect("upper bound 1300 < 1377 raises the flag");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(
+        message.contains("Over the last 28 days from 2027-04-03 to 2027-04-30")
+            && message.contains("about 1100 kcal a day (95 % interval 900 to 1300)")
+            && message.contains("about 1377 kcal a day, Mifflin–St Jeor"),
+        "{message}"
+    );
+    // An interval reaching above resting energy, and no log: nothing.
+    let reaching = || Some(energy_output(1300.0, 900.0, 1700.0));
+    assert_eq!(flag(&run(&with(reaching()), &base)), None);
+    // … with ten logged days at 1,000 kcal in the window: the log and the trend's central
+    // estimate (1,300 < 1,377) agree.
+    let ten_low: Vec<(i64, f64)> = (40..50).map(|k| (k, 1000.0)).collect();
+    let logged = with_intake(base.clone(), &ten_low);
+    let (_, message) = flag(&run(&with(reaching()), &logged)).expect("log and trend agree");
+    assert!(message.contains("on 10 of 10 logged days"), "{message}");
+    // The same log under a trend that implies 2,000 kcal (1,600–2,400): under-reporting, not
+    // a low intake (the low-intake flag of the log may stand; this one does not).
+    let out = run(&with(Some(energy_output(2000.0, 1600.0, 2400.0))), &logged);
+    assert_eq!(flag(&out), None);
+    assert!(codes(&out).contains(&"low_intake"));
+    // Seven logged days are too few to count; five of ten below is not most.
+    let seven = with_intake(base.clone(), &ten_low[..7]);
+    assert_eq!(flag(&run(&with(reaching()), &seven)), None);
+    let half: Vec<(i64, f64)> = (40..50)
+        .map(|k| (k, if k % 2 == 0 { 1000.0 } else { 1500.0 }))
+        .collect();
+    let half = with_intake(base.clone(), &half);
+    assert_eq!(flag(&run(&with(reaching()), &half)), None);
+    // Logged days before the window do not count (days 20–29 are before day 33).
+    let early: Vec<(i64, f64)> = (20..30).map(|k| (k, 1000.0)).collect();
+    let early = with_intake(base.clone(), &early);
+    assert_eq!(flag(&run(&with(reaching()), &early)), None);
+    // Enrolled 13 days before the period's end: too short to speak of weeks; 14 days will do.
+    let mut recent = base.clone();
+    recent.profile.enrolled = day(48);
+    assert_eq!(
+        flag(&run(
+            &with(Some(energy_output(1100.0, 900.0, 1300.0))),
+            &recent
+        )),
+        None
+    );
+    recent.profile.enrolled = day(47);
+    let (_, message) = flag(&run(
+        &with(Some(energy_output(1100.0, 900.0, 1300.0))),
+        &recent,
+    ))
+    .expect("14 days since enrolment");
+    assert!(
+        message.contains("Over the last 14 days from 2027-04-17"),
+        "{message}"
+    );
+    // Without the energy module's output nothing can be judged.
+    assert_eq!(flag(&run(&with(None), &logged)), None);
+    // On a glucose-lowering medicine it asks for a medication review too.
+    let mut on_med = base.clone();
+    on_med.profile.flags = vec!["glucose-lowering-medication".into()];
+    let out = run(&with(Some(energy_output(1100.0, 900.0, 1300.0))), &on_med);
+    assert_eq!(
+        codes(&out),
+        vec!["below_resting_intake", "medication_review"]
+    );
+    assert!(
+        out.flags[1]
+            .message
+            .contains("With an intake below resting energy for weeks"),
+        "{}",
+        out.flags[1].message
     );
 }
