@@ -349,6 +349,7 @@ pub(crate) fn build_with(
 
     floors_agree(program, &entries, &mut diags);
     underweight_agrees(program, &entries, &mut diags);
+    energy_before_outcomes(program, &entries, &mut diags);
     if diags
         .iter()
         .any(|d| d.severity == crate::diag::Severity::Error)
@@ -401,6 +402,41 @@ fn floors_agree(program: &Program, entries: &[Entry], diags: &mut Vec<Diagnostic
             });
         }
     }
+}
+
+/// `outcomes` reads the `energy` module's results when both run (the implied intake for its
+/// `below_resting_intake` and `medication_review` flags, energy's very-low-intake flag), but
+/// does not require `energy`, which a program may leave out. Listed after it, `outcomes` saw no
+/// energy results: those clinical flags were silently never raised while the report's cautions
+/// still named them. It is an error at the `outcomes` entry.
+fn energy_before_outcomes(program: &Program, entries: &[Entry], diags: &mut Vec<Diagnostic>) {
+    let at = |id: &str| entries.iter().position(|e| e.spec.id == id);
+    let (Some(energy), Some(outcomes)) = (at("energy"), at("outcomes")) else {
+        return;
+    };
+    if energy < outcomes {
+        return;
+    }
+    let line = program
+        .def
+        .modules
+        .iter()
+        .position(|d| d.id == "outcomes")
+        .and_then(|i| program.module_lines.get(&i).copied());
+    let d = Diagnostic::error(
+        "program.yaml",
+        "module `outcomes` comes before `energy` in `modules:`, so its clinical flags that \
+         rest on the energy model (intake below resting energy, medication review) could never \
+         be raised",
+    )
+    .field("modules")
+    .expected("`energy` listed before `outcomes`")
+    .found("`outcomes` first")
+    .hint("move the `energy` entry above the `outcomes` entry");
+    diags.push(match line {
+        Some(l) => d.at(l, None),
+        None => d,
+    });
 }
 
 /// The underweight cut-off is one setting: the `outcomes` module's `underweight_bmi_below` raises

@@ -541,6 +541,26 @@ fn the_two_modules_intake_floors_must_agree() {
     assert!(real("  - id: trend\n  - id: energy\n  - id: outcomes\n").is_ok());
 }
 
+/// `outcomes` reads `energy`'s results when both run: listed first, its energy-based clinical
+/// flags could never be raised. Without `energy` it is fine.
+#[test]
+fn outcomes_listed_before_energy_is_an_error() {
+    let real = |yaml: &str| build_with(&program(yaml), super::registry::builtin_modules());
+    let errs = real("  - id: trend\n  - id: outcomes\n  - id: energy\n").unwrap_err();
+    let errs = errors(&errs);
+    assert_eq!(errs.len(), 1, "{errs:?}");
+    assert!(
+        errs[0]
+            .message
+            .starts_with("module `outcomes` comes before `energy`"),
+        "{}",
+        errs[0].message
+    );
+    assert_eq!(errs[0].line, Some(11));
+    assert!(real("  - id: trend\n  - id: outcomes\n").is_ok());
+    assert!(real("  - id: trend\n  - id: energy\n  - id: outcomes\n").is_ok());
+}
+
 /// The outputs keep cohortpress's description of an external module's failure and leave out
 /// its own words and any path; a built-in module's message is kept whole.
 #[test]
