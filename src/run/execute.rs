@@ -783,8 +783,16 @@ pub fn summary_row(
             .find(|w| w.date <= period.to)
             .map(|w| w.weight.kg())
     });
-    let weekly_change_percent = match (trend_series, baseline_kg) {
-        (Some(s), Some(b)) if b > 0.0 => s
+    // The outcomes module's trajectory (exported in tables.csv), so that the group report's
+    // weekly means are those of the rows a researcher reads; the same rule, computed here,
+    // when the program runs without that module.
+    let weekly_change_percent = match (outcomes, trend_series, baseline_kg) {
+        (Some(o), _, _) => o
+            .trajectory
+            .iter()
+            .map(|r| (r.week, r.change_percent))
+            .collect(),
+        (None, Some(s), Some(b)) if b > 0.0 => s
             .points
             .iter()
             .filter(|p| p.date >= data.profile.enrolled && p.date <= period.to)
