@@ -487,6 +487,13 @@ fn the_trajectory_by_week_since_enrolment_is_in_tables_csv_and_repeats_the_group
             .collect()
     };
     let group = read_json(&metrics.join("group.json"));
+    // group.json says what the weeks and values are (its methods did not).
+    let method = group["methods"]["trajectory"].as_str().unwrap_or_default();
+    assert!(
+        method.contains("weeks are counted from each participant's enrolment")
+            && method.contains("trend weight on the week's last day"),
+        "{method}"
+    );
     let trajectory = group["program"]["stats"]["trajectory"].as_array().unwrap();
     let mut compared = 0;
     for w in trajectory {
