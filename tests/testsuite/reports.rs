@@ -2290,7 +2290,7 @@ fn the_energy_chart_of_someone_without_a_food_log_names_only_what_it_draws() {
     let prog = ProgramTest::fixture("report-small");
     // SG-003: enrolled before the period, weighed and logging throughout.
     let id = "SG-003";
-    std::fs::remove_file(prog.dir.join("participants").join(&id).join("intake.csv")).unwrap();
+    std::fs::remove_file(prog.dir.join("participants").join(id).join("intake.csv")).unwrap();
     let outcome = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
     assert!([0, 1].contains(&outcome.code), "{}", outcome.stderr);
     let html =
