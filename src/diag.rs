@@ -122,6 +122,46 @@ impl Diagnostic {
     }
 }
 
+/// The level a diagnostic is logged at (see [`Diagnostic::log`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LogLevel {
+    /// ERROR: what the exit code is about (a participant or file left out).
+    Error,
+    /// WARN.
+    Warn,
+    /// DEBUG (warnings a run counts rather than lists).
+    Debug,
+}
+
+/// Names of the fields a logged diagnostic carries besides its message (the text log leaves
+/// them out: its message already says them).
+pub const LOG_FIELDS: [&str; 5] = ["participant", "file", "line", "column", "field"];
+
+impl Diagnostic {
+    /// Logs `text` (the diagnostic in words) with where it is as fields of its own
+    /// (`participant`, `file`, `line`, `column`, `field`, each when known), so a JSON log line
+    /// can be filtered and grouped by participant or file without parsing its message.
+    pub fn log(&self, level: LogLevel, text: &str) {
+        let participant = self.participant.as_deref().map(printable);
+        let participant = participant.as_deref();
+        let file = printable(&self.file);
+        let file: &str = &file;
+        let field = self.field.as_deref().map(printable);
+        let field = field.as_deref();
+        let (line, column) = (self.line, self.column);
+        macro_rules! at {
+            ($mac:ident) => {
+                tracing::$mac!(participant, file, line, column, field, "{text}")
+            };
+        }
+        match level {
+            LogLevel::Error => at!(error),
+            LogLevel::Warn => at!(warn),
+            LogLevel::Debug => at!(debug),
+        }
+    }
+}
+
 impl fmt::Display for Diagnostic {
     /// Human form, e.g.
     ///

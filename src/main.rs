@@ -9,7 +9,13 @@ use std::process::ExitCode;
 fn main() -> ExitCode {
     // Processes that external modules leave behind are adopted and stopped, up to the end.
     let _modules = cohortpress::modules::external::Containment::install();
-    let cli = Cli::parse();
+    // A command line clap refuses is reported by `cmd`: as a JSON line when the JSON log was
+    // asked for (a cron job's log collector parses every line), else as clap prints it.
+    let args: Vec<std::ffi::OsString> = std::env::args_os().collect();
+    let cli = match Cli::try_parse_from(&args) {
+        Ok(cli) => cli,
+        Err(e) => return ExitCode::from(cmd::command_line_refused(&e, &args) as u8),
+    };
     // A file-size limit (`ulimit -f`) makes the kernel send SIGXFSZ, whose default action ends
     // the process in the middle of a write, without a word and with the staging folder left
     // behind. With the signal caught, the write fails with EFBIG instead, and the run ends as

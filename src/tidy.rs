@@ -592,6 +592,21 @@ pub fn datapackage(
         ..DpField::new(name, "integer", description)
     };
 
+    // What each table holds, from its module's declaration: the file's long form keeps only
+    // a table's name, and a table such as `outcomes.trajectory` means nothing without it.
+    let tables_declared = format!(
+        "table name; the modules' tables, as `module.table: what it holds`: {}",
+        specs
+            .iter()
+            .flat_map(|s| {
+                s.outputs
+                    .iter()
+                    .filter(|o| o.kind == "table")
+                    .map(move |o| format!("{}.{}: {}", s.id, o.name, o.description))
+            })
+            .collect::<Vec<_>>()
+            .join("; ")
+    );
     let package = DpPackage {
         profile: "tabular-data-package",
         name: "cohortpress-metrics",
@@ -637,7 +652,7 @@ pub fn datapackage(
                 vec![
                     id(),
                     DpField::required("module", "string", "module id"),
-                    DpField::required("table", "string", "table name"),
+                    DpField::required("table", "string", &tables_declared),
                     positive("row", "row of the participant's table, from 1", true),
                     DpField::required("column", "string", "column name"),
                     DpField::new(

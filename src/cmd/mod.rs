@@ -89,6 +89,51 @@ pub fn dispatch(cli: Cli) -> i32 {
     }
 }
 
+/// Reports a command line clap refused and returns its exit code. With the JSON log asked for
+/// (`--log-format json` among the arguments), the refusal is a JSON line at ERROR, followed by
+/// the line that ends every stopped run's log and carries the exit code: a cron job's log
+/// collector parses every line as JSON, and clap's usage text broke it. Otherwise, and for
+/// `--help` and `--version`, clap prints as usual.
+pub fn command_line_refused(e: &clap::Error, args: &[std::ffi::OsString]) -> i32 {
+    if !e.use_stderr() || !asks_for_json_log(args) {
+        let _ = e.print();
+        return e.exit_code();
+    }
+    init_logging(false, LogFormat::Json);
+    let text = e.render().to_string();
+    let text = text
+        .lines()
+        .map(str::trim)
+        .filter(|l| !l.is_empty())
+        .collect::<Vec<_>>()
+        .join(" | ");
+    let text = text.strip_prefix("error: ").unwrap_or(&text);
+    tracing::error!("the command line was refused: {text}");
+    tracing::error!(
+        exit_code = exit_code::USAGE,
+        "stopped: the output folder was left as it was"
+    );
+    exit_code::USAGE
+}
+
+/// Whether the arguments ask for the JSON log (`--log-format json` or `--log-format=json`,
+/// the last one given, before any `--`), judged without clap, which has refused them.
+fn asks_for_json_log(args: &[std::ffi::OsString]) -> bool {
+    let mut json = false;
+    let mut it = args.iter().skip(1).map(|a| a.to_string_lossy());
+    while let Some(a) = it.next() {
+        if a == "--" {
+            break;
+        }
+        if a == "--log-format" {
+            json = it.next().is_some_and(|v| v == "json");
+        } else if let Some(v) = a.strip_prefix("--log-format=") {
+            json = v == "json";
+        }
+    }
+    json
+}
+
 /// Debug builds only: `COHORTPRESS_DEBUG_PANIC=1` panics at the start of a command, so the
 /// test suite can check that a panic maps to exit code 70. Release builds have no such hook.
 fn debug_panic_hook() {
@@ -118,12 +163,80 @@ fn init_logging(quiet: bool, format: LogFormat) {
     // lines could not otherwise be told apart. Text lines, for a person at a terminal, stay
     // short. Output files never hold a clock time either way.
     let _ = match format {
-        LogFormat::Text => builder.without_time().try_init(),
+        LogFormat::Text => builder.without_time().fmt_fields(TextFields).try_init(),
         LogFormat::Json => builder
             .with_timer(tracing_subscriber::fmt::time::SystemTime)
             .json()
             .try_init(),
     };
+}
+
+/// The text log's fields: as tracing-subscriber's default, without the fields that say where a
+/// diagnostic is ([`crate::diag::LOG_FIELDS`]) and others the message already says in words;
+/// the JSON log keeps them as fields of their own.
+struct TextFields;
+
+/// [`TextFields`]' visitor: the default one, skipping those fields.
+struct TextVisitor<'w>(tracing_subscriber::fmt::format::DefaultVisitor<'w>);
+
+impl TextVisitor<'_> {
+    fn shown(field: &tracing::field::Field) -> bool {
+        // The module a failure concerns, and the counts of a run's last line, are in its words.
+        const SAID: [&str; 5] = [
+            "module",
+            "reported",
+            "participants_with_errors",
+            "module_failures",
+            "warnings",
+        ];
+        let name = field.name();
+        !(crate::diag::LOG_FIELDS.contains(&name) || SAID.contains(&name))
+    }
+}
+
+impl<'w> tracing_subscriber::field::MakeVisitor<tracing_subscriber::fmt::format::Writer<'w>>
+    for TextFields
+{
+    type Visitor = TextVisitor<'w>;
+    fn make_visitor(&self, target: tracing_subscriber::fmt::format::Writer<'w>) -> Self::Visitor {
+        TextVisitor(tracing_subscriber::fmt::format::DefaultVisitor::new(
+            target, true,
+        ))
+    }
+}
+
+impl tracing::field::Visit for TextVisitor<'_> {
+    fn record_str(&mut self, field: &tracing::field::Field, value: &str) {
+        if Self::shown(field) {
+            self.0.record_str(field, value)
+        }
+    }
+    fn record_error(
+        &mut self,
+        field: &tracing::field::Field,
+        value: &(dyn std::error::Error + 'static),
+    ) {
+        if Self::shown(field) {
+            self.0.record_error(field, value)
+        }
+    }
+    fn record_debug(&mut self, field: &tracing::field::Field, value: &dyn std::fmt::Debug) {
+        if Self::shown(field) {
+            self.0.record_debug(field, value)
+        }
+    }
+}
+
+impl tracing_subscriber::field::VisitOutput<std::fmt::Result> for TextVisitor<'_> {
+    fn finish(self) -> std::fmt::Result {
+        self.0.finish()
+    }
+}
+
+impl tracing_subscriber::field::VisitFmt for TextVisitor<'_> {
+    fn writer(&mut self) -> &mut dyn std::fmt::Write {
+        self.0.writer()
+    }
 }
 
 /// `cohortpress import fhir FILE… --out PROGRAM [--ids MAP.csv]`.

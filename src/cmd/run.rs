@@ -59,6 +59,27 @@ pub fn summary_code(s: &RunSummary) -> i32 {
     .exit_code()
 }
 
+/// The counts a finished run's last line gives, those [`summary_code`] judges by: the warnings
+/// about the program folder count as warnings there too (a stray file alone made exit code 1
+/// beside "0 warnings").
+struct Counts {
+    reported: usize,
+    with_errors: usize,
+    module_failures: usize,
+    warnings: usize,
+}
+
+impl Counts {
+    fn of(s: &RunSummary) -> Counts {
+        Counts {
+            reported: s.reported,
+            with_errors: s.participants_with_errors + s.skipped_folders,
+            module_failures: s.module_failures,
+            warnings: s.warnings + s.program_warnings,
+        }
+    }
+}
+
 /// The documented exit code of a run that could not complete.
 pub fn error_code(e: &RunError) -> i32 {
     let blamed = |by: &Blame| match by {
@@ -124,15 +145,20 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
             );
             let code = summary_code(&summary);
             // The exit code rides on the last line too, for log collectors that keep the
-            // JSON lines but not the process's status.
+            // JSON lines but not the process's status, and so do the counts behind it.
+            let c = Counts::of(&summary);
             tracing::info!(
                 exit_code = code,
+                reported = c.reported,
+                participants_with_errors = c.with_errors,
+                module_failures = c.module_failures,
+                warnings = c.warnings,
                 "done in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
                 started.elapsed().as_secs_f64(),
-                summary.reported,
-                summary.participants_with_errors + summary.skipped_folders,
-                summary.module_failures,
-                summary.warnings,
+                c.reported,
+                c.with_errors,
+                c.module_failures,
+                c.warnings,
                 plan.out_dir.display()
             );
             code
@@ -168,17 +194,25 @@ pub fn merge_command(args: &MergeArgs) -> i32 {
     let opts = merge_options(args);
     match run::shard::merge_shards(&opts) {
         Ok((summary, shards, plan)) => {
+            let code = summary_code(&summary);
+            let c = Counts::of(&summary);
+            // The last line carries the exit code, as a run's does.
             tracing::info!(
+                exit_code = code,
+                reported = c.reported,
+                participants_with_errors = c.with_errors,
+                module_failures = c.module_failures,
+                warnings = c.warnings,
                 "merged {} shards in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
                 shards,
                 started.elapsed().as_secs_f64(),
-                summary.reported,
-                summary.participants_with_errors + summary.skipped_folders,
-                summary.module_failures,
-                summary.warnings,
+                c.reported,
+                c.with_errors,
+                c.module_failures,
+                c.warnings,
                 plan.display()
             );
-            summary_code(&summary)
+            code
         }
         Err(e) => report_failure(&e, true),
     }

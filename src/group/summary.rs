@@ -144,6 +144,8 @@ pub struct Methods {
     pub locf: String,
     /// Completers-only analysis.
     pub completers: String,
+    /// What the weekly trajectory's weeks and values are.
+    pub trajectory: String,
     /// Interval for a mean.
     pub mean_interval: String,
     /// Interval for a median.
@@ -178,6 +180,16 @@ impl Methods {
                 .into(),
             completers: "Completers: only participants with a weight at the time point; this \
                          tends to overstate success."
+                .into(),
+            trajectory: "Weekly trajectory: weeks are counted from each participant's \
+                         enrolment (week 0 is the enrolment day and the six days after it); a \
+                         participant's value for a week is the change of their smoothed trend \
+                         weight on the week's last day from their baseline weight, in % of the \
+                         baseline, up to the period's end, and a week's mean is over the \
+                         participants who started and have a trend weight that day (those still \
+                         weighing in: not intention-to-treat). Each participant's values are in \
+                         the program staff's tidy metrics (metrics/tables.csv, the outcomes \
+                         module's trajectory table; identified: not for the sponsor)."
                 .into(),
             mean_interval: format!("{c:.0} % interval for a mean: Student t (mean ± t × SE)."),
             median_interval: format!(

@@ -117,6 +117,8 @@ impl ModuleSet {
                         // The outputs keep only cohortpress's words (`for_outputs`); the module's
                         // own are logged here, with whom they concern.
                         tracing::warn!(
+                            participant = data.profile.id.as_str(),
+                            module = id.as_str(),
                             "{}: module {id} failed: {}",
                             data.profile.id,
                             e.message.replace('\n', " |")
@@ -134,6 +136,8 @@ impl ModuleSet {
                         .or_else(|| panic.downcast_ref::<String>().cloned())
                         .unwrap_or_else(|| "no message".into());
                     tracing::error!(
+                        participant = data.profile.id.as_str(),
+                        module = entry.spec.id.as_str(),
                         "module `{}` panicked for participant {}: {what}",
                         entry.spec.id,
                         data.profile.id

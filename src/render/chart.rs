@@ -367,13 +367,29 @@ fn legend_entries(c: &LineChart) -> usize {
         .filter(|s| !s.label.is_empty())
         .map(|s| s.label.as_str())
         .collect();
-    c.lines.iter().filter(|l| !l.label.is_empty()).count()
-        + c.bands.iter().filter(|b| !b.label.is_empty()).count()
+    c.lines
+        .iter()
+        .filter(|l| !l.label.is_empty() && l.points.iter().any(|p| p.1.is_finite()))
+        .count()
+        + c.bands
+            .iter()
+            .filter(|b| !b.label.is_empty() && band_drawn(b))
+            .count()
         + c.hlines
             .iter()
             .filter(|h| !h.label.is_empty() && h.y.is_finite())
             .count()
         + spans.len()
+}
+
+/// Whether a band is drawn: two consecutive points (by date) with finite bounds, as the
+/// drawing needs for a piece of it.
+fn band_drawn(b: &BandSeries) -> bool {
+    let mut all = b.points.clone();
+    all.sort_by_key(|p| p.0);
+    finite_runs(&all, |p| p.1.is_finite() && p.2.is_finite())
+        .iter()
+        .any(|run| run.len() >= 2)
 }
 
 /// Height of the strip under a chart `width` pixels wide that holds its legend.
@@ -678,7 +694,9 @@ fn draw_line_chart<DB: DrawingBackend>(
         let line_style = colour.stroke_width(2);
         // A non-finite value is a break: the line is drawn in pieces and never bridges it
         // (a week withheld from a group chart must not be drawn as an interpolated value).
+        let mut drawn = false;
         for pts in finite_runs(&all, |p| p.1.is_finite()) {
+            drawn |= !pts.is_empty();
             match l.style {
                 LineStyle::Dots => chart.draw_series(
                     pts.iter()
@@ -698,7 +716,9 @@ fn draw_line_chart<DB: DrawingBackend>(
                 ))?,
             };
         }
-        if !l.label.is_empty() {
+        // A series with nothing drawn (no food log: no logged intake) has no legend entry: the
+        // legend listed "Logged intake" beside a chart without it.
+        if drawn && !l.label.is_empty() {
             swatches.push((
                 l.label.clone(),
                 match l.style {
@@ -1232,6 +1252,39 @@ pub(crate) mod tests {
             .chain(spans)
             .filter(|l| !l.is_empty())
             .collect()
+    }
+
+    /// A participant with no food log: the energy chart's "Logged intake" series has no
+    /// points, and the legend still listed it (and made room for it).
+    #[test]
+    fn a_series_with_nothing_drawn_has_no_legend_entry() {
+        let Chart::Line(mut c) = sample_line() else {
+            unreachable!()
+        };
+        let before = legend_entries(&c);
+        c.lines.push(LineSeries {
+            label: "Logged intake".into(),
+            points: vec![],
+            style: LineStyle::Dots,
+        });
+        c.lines.push(LineSeries {
+            label: "Withheld".into(),
+            points: vec![(c.lines[0].points[0].0, f64::NAN)],
+            style: LineStyle::Solid,
+        });
+        let mut band = c.bands[0].clone();
+        band.label = "Empty band".into();
+        band.points.truncate(1);
+        c.bands.push(band);
+        assert_eq!(legend_entries(&c), before);
+        let chart = Chart::Line(c);
+        for svg in [to_svg(&chart, 720, 300), to_svg_narrow(&chart, 380, 300)] {
+            let texts = svg_text_positions(&svg);
+            for label in ["Logged intake", "Withheld", "Empty band"] {
+                assert!(!texts.iter().any(|t| t.1 == label), "{label} in the legend");
+            }
+            assert!(texts.iter().any(|t| t.1 == "weigh-ins"));
+        }
     }
 
     #[test]

@@ -341,6 +341,7 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
         Kv::new("Missing outcome, primary (BOCF)", &m.bocf),
         Kv::new("Sensitivity (LOCF)", &m.locf),
         Kv::new("Completers", &m.completers),
+        Kv::new("Weekly trajectory", &m.trajectory),
         Kv::new("Mean intervals", &m.mean_interval),
         Kv::new("Median intervals", &m.median_interval),
         Kv::new("Proportion intervals", &m.proportion_interval),

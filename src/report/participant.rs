@@ -1134,7 +1134,37 @@ fn energy_section(
         table.rows.push(row);
     }
     let [exp, logged, implied] = series;
-    let alt = "Weekly energy: estimated energy use, logged intake and the intake implied by the weight trend, in kcal per day.".to_string();
+    // The description names the series drawn, as the legend does (no food log: no logged
+    // intake, and both said there was).
+    let named = |words: [&str; 3]| {
+        let parts: Vec<&str> = [&exp, &logged, &implied]
+            .iter()
+            .zip(words)
+            .filter(|(s, _)| !s.is_empty())
+            .map(|(_, w)| w)
+            .collect();
+        match parts.as_slice() {
+            [] => "no figure yet".to_string(),
+            [one] => one.to_string(),
+            [rest @ .., last] => format!("{} and {last}", rest.join(", ")),
+        }
+    };
+    let alt = format!(
+        "Weekly energy: {}, in kcal per day.",
+        named([
+            "estimated energy use",
+            "logged intake",
+            "the intake implied by the weight trend"
+        ])
+    );
+    let view_alt = if exp.is_empty() && logged.is_empty() && implied.is_empty() {
+        "Weekly energy: no figure yet.".to_string()
+    } else {
+        format!(
+            "Weekly {} (kcal/day).",
+            named(["energy use", "logged intake", "implied intake"])
+        )
+    };
     let chart = Some(Chart::Line(LineChart {
         title: "Energy per day, by week".into(),
         y_label: "kcal/day".into(),
@@ -1165,7 +1195,7 @@ fn energy_section(
         explanation,
         chart: ChartView {
             title: "Energy by week".into(),
-            alt: "Weekly energy use, logged intake and implied intake (kcal/day).".into(),
+            alt: view_alt,
             table,
         },
     };

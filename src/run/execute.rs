@@ -15,7 +15,7 @@
 use super::partial::{self, DiagRecord, InputRecord, ParticipantRecord, SummaryRecord, TidyRecord};
 use super::shard::{self, ShardFile};
 use super::{Blame, RunError, RunPlan, RunSummary, Timing};
-use crate::diag::{Diagnostic, Severity};
+use crate::diag::{Diagnostic, LogLevel, Severity};
 use crate::group::{self, GroupOptions, ParticipantSummary};
 use crate::modules::ModuleResults;
 use crate::output::{OutputSet, Staging};
@@ -281,7 +281,12 @@ fn tally(
             .count();
         summary.module_failures += r.failures.len();
         for (m, msg) in &r.failures {
-            tracing::warn!("{}: module {m} failed: {msg}", r.id);
+            tracing::warn!(
+                participant = r.id.as_str(),
+                module = m.as_str(),
+                "{}: module {m} failed: {msg}",
+                r.id
+            );
         }
         all_diags.extend(diags);
         inputs.extend(r.input_files());
@@ -320,14 +325,24 @@ fn tally(
                 };
                 // At ERROR: these are why the run ends with exit code 4 ("some inputs had
                 // errors"), and a log collector alerting on ERROR lines missed them at WARN.
-                tracing::error!(
-                    "{}",
-                    d.to_string()
+                d.log(
+                    LogLevel::Error,
+                    &d.to_string()
                         .replacen("error: ", what, 1)
-                        .replace('\n', " |")
+                        .replace('\n', " |"),
                 )
             }
-            Severity::Warning => tracing::debug!("{}", d.to_string().replace('\n', " |")),
+            // A participant's warnings are counted in the last line and listed in
+            // data-quality.csv; one about the program folder (a stray file, a link) is logged:
+            // alone, it made a run end with exit code 1 whose log said "0 warnings" and no why.
+            Severity::Warning => {
+                let level = if d.participant.is_none() {
+                    LogLevel::Warn
+                } else {
+                    LogLevel::Debug
+                };
+                d.log(level, &d.to_string().replace('\n', " |"))
+            }
         }
     }
     inputs.sort_by(|a, b| a.path.cmp(&b.path));
@@ -664,7 +679,7 @@ fn process_participant(
         if let Some(line) = loaded.enrolled_line {
             diag = diag.at(line, None);
         }
-        tracing::warn!("{}", diag.to_string().replace('\n', " |"));
+        diag.log(LogLevel::Warn, &diag.to_string().replace('\n', " |"));
         rec.diagnostics.push(DiagRecord::from_diagnostic(&diag));
         false
     });
@@ -683,11 +698,12 @@ fn process_participant(
             // Logged now, and kept with the participant's other warnings (the data-quality list
             // and the run's warning count).
             let mut warn = |file: String, field: Option<&str>, message: String| {
-                tracing::warn!("{}: {file}: {message}", data.profile.id);
+                let text = format!("{}: {file}: {message}", data.profile.id);
                 let mut d = Diagnostic::warning(file, message).participant(&data.profile.id);
                 if let Some(f) = field {
                     d = d.field(f);
                 }
+                d.log(LogLevel::Warn, &text);
                 rec.diagnostics.push(DiagRecord::from_diagnostic(&d));
             };
             if let Some(missing) = report::pdf_name_fallback(&ctx) {
@@ -767,8 +783,16 @@ pub fn summary_row(
             .find(|w| w.date <= period.to)
             .map(|w| w.weight.kg())
     });
-    let weekly_change_percent = match (trend_series, baseline_kg) {
-        (Some(s), Some(b)) if b > 0.0 => s
+    // The outcomes module's trajectory (exported in tables.csv), so that the group report's
+    // weekly means are those of the rows a researcher reads; the same rule, computed here,
+    // when the program runs without that module.
+    let weekly_change_percent = match (outcomes, trend_series, baseline_kg) {
+        (Some(o), _, _) => o
+            .trajectory
+            .iter()
+            .map(|r| (r.week, r.change_percent))
+            .collect(),
+        (None, Some(s), Some(b)) if b > 0.0 => s
             .points
             .iter()
             .filter(|p| p.date >= data.profile.enrolled && p.date <= period.to)

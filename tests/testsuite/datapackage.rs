@@ -420,3 +420,98 @@ fn participants_csv_does_not_count_a_folder_the_group_report_leaves_out() {
     let started_n = rows.iter().filter(|x| &x[started] == "true").count() as u64;
     assert_eq!(n, started_n);
 }
+
+/// The group report's weekly trajectory (mean change from the starting weight by week since
+/// enrolment) had nothing behind it in the tidy files: a researcher could neither repeat it nor
+/// model it per participant. The outcomes module's `trajectory` table holds each participant's
+/// weeks, the descriptor says what it holds, and its mean by week is the group report's.
+#[test]
+fn the_trajectory_by_week_since_enrolment_is_in_tables_csv_and_repeats_the_group_report() {
+    let (_t, metrics) = sample_metrics();
+    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let package = read_json(&metrics.join("datapackage.json"));
+    let tables = package["resources"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["name"] == "tables")
+        .unwrap();
+    let table_field = tables["schema"]["fields"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["name"] == "table")
+        .unwrap();
+    let described = table_field["description"].as_str().unwrap();
+    assert!(
+        described.contains(
+            "outcomes.trajectory: change from the starting weight by week since enrolment"
+        ),
+        "{described}"
+    );
+    assert!(described.contains("outcomes.milestones: "), "{described}");
+
+    let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let started_col = header.iter().position(|h| h == "started").unwrap();
+    let started: BTreeSet<String> = r
+        .records()
+        .map(Result::unwrap)
+        .filter(|x| &x[started_col] == "true")
+        .map(|x| x[0].to_string())
+        .collect();
+    // (participant, row) → column → value, for the outcomes trajectory.
+    let mut rows: std::collections::BTreeMap<
+        (String, u32),
+        std::collections::BTreeMap<String, String>,
+    > = Default::default();
+    let mut r = csv::Reader::from_path(metrics.join("tables.csv")).unwrap();
+    for rec in r.records().map(Result::unwrap) {
+        if &rec[1] == "outcomes" && &rec[2] == "trajectory" {
+            rows.entry((rec[0].to_string(), rec[3].parse().unwrap()))
+                .or_default()
+                .insert(rec[4].to_string(), rec[6].to_string());
+        }
+    }
+    assert!(!rows.is_empty());
+    // SG-001 enrolled on 2026-04-01: week 0 ends on 2026-04-07, week 1 on 2026-04-14.
+    let sg001: Vec<_> = rows.iter().filter(|((p, _), _)| p == "SG-001").collect();
+    assert_eq!(sg001[0].1["week"], "0");
+    assert_eq!(sg001[0].1["date"], "2026-04-07");
+    assert_eq!(sg001[1].1["date"], "2026-04-14");
+    // The percent is the weight against the starting weight in participants.csv.
+    let by_week = |week: u32| -> Vec<f64> {
+        rows.iter()
+            .filter(|((p, _), c)| started.contains(p) && c["week"] == week.to_string())
+            .map(|(_, c)| c["change_percent"].parse::<f64>().unwrap())
+            .collect()
+    };
+    let group = read_json(&metrics.join("group.json"));
+    // group.json says what the weeks and values are (its methods did not).
+    let method = group["methods"]["trajectory"].as_str().unwrap_or_default();
+    assert!(
+        method.contains("weeks are counted from each participant's enrolment")
+            && method.contains("trend weight on the week's last day"),
+        "{method}"
+    );
+    let trajectory = group["program"]["stats"]["trajectory"].as_array().unwrap();
+    let mut compared = 0;
+    for w in trajectory {
+        let Some(mean) = w["mean_percent"]["value"].as_f64() else {
+            continue;
+        };
+        let values = by_week(w["week"].as_u64().unwrap() as u32);
+        // n is exact while everyone who started is counted, a range after that.
+        if let Some(n) = w["n"]["value"].as_u64() {
+            assert_eq!(values.len() as u64, n, "week {}", w["week"]);
+        }
+        let ours = values.iter().sum::<f64>() / values.len() as f64;
+        assert!(
+            (ours - mean).abs() < 0.005,
+            "week {}: {ours} vs {mean}",
+            w["week"]
+        );
+        compared += 1;
+    }
+    assert!(compared >= 20, "only {compared} weeks shown");
+}

@@ -831,3 +831,174 @@ fn only_with_a_comma_list_says_to_repeat_the_option() {
     assert_eq!(r.code, 2, "{}", r.stderr);
     assert!(!r.stderr.contains("give each its own"), "{}", r.stderr);
 }
+
+/// Every line of `stderr` as JSON, or a panic naming the line that is not.
+fn json_lines(what: &str, stderr: &str) -> Vec<serde_json::Value> {
+    stderr
+        .lines()
+        .map(|l| {
+            serde_json::from_str(l).unwrap_or_else(|e| panic!("{what}: not a JSON line ({e}): {l}"))
+        })
+        .collect()
+}
+
+#[test]
+fn a_refused_command_line_is_logged_as_json_lines_when_the_json_log_was_asked_for() {
+    // A crontab line with a typo in an option (or a lost argument) gave clap's usage text in
+    // plain lines on standard error: a log collector parsing the JSON log broke on them, and no
+    // line carried the exit code.
+    let t = ProgramTest::fixture("report-small");
+    let cases: [(&str, &[&str], &str); 4] = [
+        (
+            "an unknown option",
+            &["run", "{dir}", "--log-format", "json", "--perod", "2026-09"],
+            "--perod",
+        ),
+        (
+            "a missing program",
+            &["run", "--log-format=json", "--formats", "html"],
+            "<PROGRAM>",
+        ),
+        (
+            "a value that does not read",
+            &["run", "{dir}", "--jobs", "many", "--log-format", "json"],
+            "many",
+        ),
+        (
+            "merge without its shards",
+            &["merge", "{dir}", "--log-format", "json"],
+            "<SHARD_DIR>",
+        ),
+    ];
+    for (what, args, named) in cases {
+        let r = t.run(args);
+        assert_eq!(
+            r.code,
+            cohortpress::exit_code::USAGE,
+            "{what}: {}",
+            r.stderr
+        );
+        assert_eq!(r.stdout, "", "{what}");
+        let lines = json_lines(what, &r.stderr);
+        assert!(lines.len() >= 2, "{what}: {}", r.stderr);
+        assert!(
+            lines
+                .iter()
+                .all(|v| v["level"] == "ERROR" && v["timestamp"].is_string()),
+            "{what}: {}",
+            r.stderr
+        );
+        let reason = lines[0]["fields"]["message"].as_str().unwrap();
+        assert!(
+            reason.starts_with("the command line was refused: ") && reason.contains(named),
+            "{what}: {reason}"
+        );
+        let last = lines.last().unwrap();
+        assert_eq!(last["fields"]["exit_code"], 2, "{what}: {}", r.stderr);
+    }
+    // Without the JSON log, clap's own words, as before.
+    let r = t.run(&["run", "{dir}", "--perod", "2026-09"]);
+    assert_eq!(r.code, 2);
+    assert!(
+        r.stderr.starts_with("error: unexpected argument '--perod'"),
+        "{}",
+        r.stderr
+    );
+    // Help is not an error: it goes to standard output, as text, with exit code 0.
+    let r = t.run(&["run", "--log-format", "json", "--help"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(r.stdout.contains("Usage: cohortpress run"), "{}", r.stdout);
+}
+
+#[test]
+fn a_logged_input_problem_carries_its_participant_file_line_and_column_as_fields() {
+    // The JSON log's ERROR lines said where a problem was only inside the message text, so a
+    // collector could not group or filter them by participant or file.
+    let t = ProgramTest::fixture("broken-program");
+    let r = run(
+        &t,
+        &out(&t, "r"),
+        &["--log-format", "json", "--formats", "html"],
+    );
+    assert_eq!(
+        r.code,
+        cohortpress::exit_code::PARTICIPANT_ERRORS,
+        "{}",
+        r.stderr
+    );
+    let lines = json_lines("broken-program", &r.stderr);
+    let about = |file: &str| {
+        lines
+            .iter()
+            .find(|v| v["fields"]["file"] == file)
+            .unwrap_or_else(|| panic!("no line with file {file}: {}", r.stderr))
+            .clone()
+    };
+    let height = about("participants/bad-height-unit/profile.yaml");
+    assert_eq!(height["level"], "ERROR");
+    assert_eq!(height["fields"]["participant"], "bad-height-unit");
+    assert_eq!(height["fields"]["line"], 4);
+    assert_eq!(height["fields"]["column"], 9);
+    assert_eq!(height["fields"]["field"], "height");
+    assert!(
+        height["fields"]["message"]
+            .as_str()
+            .unwrap()
+            .starts_with("participant left out: participants/bad-height-unit/profile.yaml:4:9:"),
+        "{height}"
+    );
+    let bytes = about("participants/non-utf8/activity.csv");
+    assert_eq!(bytes["fields"]["participant"], "non-utf8");
+    assert_eq!(
+        (&bytes["fields"]["line"], &bytes["fields"]["column"]),
+        (&serde_json::json!(3), &serde_json::json!(15))
+    );
+    // A line without a column has no `column` field, and one without a participant (a folder
+    // skipped for its name) no `participant`.
+    let column = about("participants/missing-column/weights.csv");
+    assert_eq!(column["fields"]["line"], 1);
+    assert!(column["fields"].get("column").is_none(), "{column}");
+    let skipped = about("participants/bad id");
+    assert!(skipped["fields"].get("participant").is_none(), "{skipped}");
+    // The text log says it once, in the message: no fields repeated after it.
+    let r = run(&t, &out(&t, "text"), &["--formats", "html"]);
+    let line = r
+        .stderr
+        .lines()
+        .find(|l| l.contains("participants/bad-height-unit/profile.yaml:4:9"))
+        .unwrap_or_else(|| panic!("{}", r.stderr));
+    assert!(
+        !line.contains("participant=") && !line.contains("line=4"),
+        "{line}"
+    );
+}
+
+#[test]
+fn a_run_that_ends_with_warnings_says_how_many_and_why_in_its_log() {
+    // A stray file in participants/ (a warning about the program folder) ended a run with exit
+    // code 1 while its last line said "0 warnings", and nothing above it at INFO or WARN said
+    // why: the administrator reading the log had no way to know what to fix.
+    let t = ProgramTest::demo(3);
+    std::fs::write(t.dir.join("participants/notes.txt"), "to do").unwrap();
+    let r = run(
+        &t,
+        &out(&t, "r"),
+        &["--log-format", "json", "--formats", "html"],
+    );
+    assert_eq!(r.code, cohortpress::exit_code::WARNINGS, "{}", r.stderr);
+    let lines = json_lines("stray file", &r.stderr);
+    let done = lines.last().unwrap();
+    let message = done["fields"]["message"].as_str().unwrap();
+    assert!(message.starts_with("done in"), "{message}");
+    assert!(message.contains(", 1 warning"), "{message}");
+    assert_eq!(done["fields"]["exit_code"], 1);
+    assert_eq!(done["fields"]["warnings"], 1, "{done}");
+    assert_eq!(done["fields"]["participants_with_errors"], 0, "{done}");
+    assert!(
+        lines
+            .iter()
+            .any(|v| v["level"] == "WARN" && v["fields"]["file"] == "participants/notes.txt"),
+        "{}",
+        r.stderr
+    );
+}

@@ -2303,3 +2303,32 @@ fn a_group_template_of_ones_own_without_the_cautions_publishes_nothing() {
     assert!(out.stderr.contains("not medical advice"), "{}", out.stderr);
     assert!(!prog.dir.join("reports/group").exists());
 }
+
+/// A participant with no food log: the energy chart draws no logged intake, and its legend and
+/// description listed "Logged intake" all the same (the week-by-week table keeps the column,
+/// with `–` in it).
+#[test]
+fn the_energy_chart_of_someone_without_a_food_log_names_only_what_it_draws() {
+    let prog = ProgramTest::fixture("report-small");
+    // SG-003: enrolled before the period, weighed and logging throughout.
+    let id = "SG-003";
+    std::fs::remove_file(prog.dir.join("participants").join(id).join("intake.csv")).unwrap();
+    let outcome = prog.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert!([0, 1].contains(&outcome.code), "{}", outcome.stderr);
+    let html =
+        std::fs::read_to_string(prog.dir.join(format!("reports/participants/{id}.html"))).unwrap();
+    let energy: Vec<&str> = html
+        .split("<svg")
+        .skip(1)
+        .filter(|s| s.contains("aria-label=\"Weekly energy"))
+        .map(|s| &s[..s.find("</svg>").unwrap()])
+        .collect();
+    assert_eq!(energy.len(), 2, "the energy chart, wide and narrow");
+    for svg in energy {
+        assert!(svg.contains("Energy use"), "{svg:.300}");
+        assert!(!svg.contains("Logged intake"), "{svg:.300}");
+        assert!(!svg.contains("logged intake"), "{svg:.300}");
+    }
+    let caption = "Weekly energy use and implied intake (kcal/day).";
+    assert!(html.contains(caption), "no `{caption}`");
+}

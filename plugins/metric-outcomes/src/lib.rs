@@ -120,7 +120,7 @@ use cohortpress_metric_energy::view::EnergyView;
 use cohortpress_metric_trend::view::{REAL_STEPS_FLAG, Status, TrendView, step_shift_after};
 use view::{
     BmiCategory, CurrentWeightSource, LABS_LABEL, LabCategory, LabRow, MILESTONES_LABEL,
-    MilestoneRow, OutcomesFlag, WeightChangeCategory, names,
+    MilestoneRow, OutcomesFlag, TRAJECTORY_LABEL, TrajectoryRow, WeightChangeCategory, names,
 };
 
 /// Id of the module whose outputs this one reads.
@@ -707,6 +707,17 @@ impl MetricModule for OutcomesModule {
                     "lab values in both units with categories",
                 ),
                 OutputSpec::new(
+                    names::TRAJECTORY,
+                    "table",
+                    "",
+                    "change from the starting weight by week since enrolment: week (0 = the \
+                     enrolment week, days 0–6), date (the week's last day, enrolment + 7·week + \
+                     6 days, up to the period's end), weight_kg (the trend weight that day, kg) \
+                     and change_percent (100·(weight − baseline)/baseline, negative = loss); \
+                     weeks without a trend weight on their last day have no row. The group \
+                     report's weekly trajectory is the mean of change_percent by week",
+                ),
+                OutputSpec::new(
                     OutcomesFlag::InsufficientData.as_str(),
                     "flag",
                     "",
@@ -787,6 +798,12 @@ impl MetricModule for OutcomesModule {
         let w = Weights::of(ctx, data);
         let bmi1 = push_weight_outcomes(&mut output, ctx, data, &w);
         output.tables.push(milestones_table(w.w0, &w.levels));
+        output.tables.push(trajectory_table(
+            w.w0,
+            &w.trend_points,
+            profile.enrolled,
+            ctx.period.to,
+        ));
         // Labs up to the end of the period.
         let labs: Vec<&LabResult> = data
             .labs
@@ -852,6 +869,8 @@ struct Weights {
     source: CurrentWeightSource,
     /// Trend levels by day from the baseline day, else the raw daily means.
     levels: Vec<(NaiveDate, f64)>,
+    /// The trend series as the trend module gave it (day, level kg).
+    trend_points: Vec<(NaiveDate, f64)>,
     /// The trend's slope, kg/week, when the trend module gave one.
     trend_rate: Option<f64>,
     /// Whether the trend is still falling: status `losing`, or the slope's whole 95 %
@@ -923,6 +942,13 @@ impl Weights {
             }
             _ => raw.clone(),
         };
+        let trend_points = trend.as_ref().map_or_else(Vec::new, |t| {
+            t.weight_trend
+                .points
+                .iter()
+                .map(|p| (p.date, p.value))
+                .collect()
+        });
         let trend_rate = trend.as_ref().and_then(|t| t.slope_kg_per_week.value);
         let trend_falling = trend.as_ref().is_some_and(|t| {
             t.status == Status::Losing || t.slope_kg_per_week.upper.is_some_and(|u| u < 0.0)
@@ -935,6 +961,7 @@ impl Weights {
             upper,
             source,
             levels,
+            trend_points,
             trend_rate,
             trend_falling,
         }
@@ -1024,6 +1051,40 @@ fn push_weight_outcomes(
         w.source.label(),
     );
     bmi1
+}
+
+/// The trajectory: for each week counted from enrolment (days 0–6 are week 0), the trend
+/// weight on its last day, up to the period's end, and its change in % of the starting weight
+/// `w0`. No rows without a starting weight.
+fn trajectory_table(
+    w0: Option<f64>,
+    trend: &[(NaiveDate, f64)],
+    enrolled: NaiveDate,
+    to: NaiveDate,
+) -> Table {
+    let rows = match w0 {
+        Some(b) if b > 0.0 => trend
+            .iter()
+            .filter(|(d, _)| *d >= enrolled && *d <= to)
+            .filter_map(|&(date, weight_kg)| {
+                let days = (date - enrolled).num_days();
+                (days % 7 == 6).then(|| TrajectoryRow {
+                    week: (days / 7) as u32,
+                    date,
+                    weight_kg,
+                    change_percent: 100.0 * (weight_kg - b) / b,
+                })
+            })
+            .map(|r| r.write())
+            .collect(),
+        _ => Vec::new(),
+    };
+    Table {
+        name: names::TRAJECTORY.into(),
+        label: TRAJECTORY_LABEL.into(),
+        columns: TrajectoryRow::columns(),
+        rows,
+    }
 }
 
 /// Milestones: first day the trend level is at or below the threshold weight.

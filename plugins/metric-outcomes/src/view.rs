@@ -41,6 +41,8 @@ pub mod names {
     pub const MILESTONES: &str = "milestones";
     /// Lab results and measurements (table of [`super::LabRow`]).
     pub const LABS: &str = "labs";
+    /// Change from baseline by week since enrolment (table of [`super::TrajectoryRow`]).
+    pub const TRAJECTORY: &str = "trajectory";
 }
 
 code_enum! {
@@ -142,6 +144,52 @@ code_enum! {
 pub const MILESTONES_LABEL: &str = "Weight-loss milestones";
 /// Label of the `labs` table.
 pub const LABS_LABEL: &str = "Lab results and measurements";
+
+/// Label of the `trajectory` table.
+pub const TRAJECTORY_LABEL: &str = "Change from the starting weight by week since enrolment";
+
+/// One row of the `trajectory` table: the trend weight on the last day of one week counted
+/// from enrolment (days 0–6 are week 0), and its change from the starting weight. The group
+/// report's trajectory is the mean of these rows by week.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TrajectoryRow {
+    /// Week since enrolment, from 0 (the enrolment week).
+    pub week: u32,
+    /// The week's last day (enrolment + 7·week + 6 days), the day the weight is taken.
+    pub date: NaiveDate,
+    /// Trend weight that day, kg.
+    pub weight_kg: f64,
+    /// Change from the starting weight, % of it (negative = loss).
+    pub change_percent: f64,
+}
+
+impl TableRow for TrajectoryRow {
+    const COLUMNS: &'static [(&'static str, &'static str, &'static str)] = &[
+        ("week", "", "Week since enrolment"),
+        ("date", "", "Week's last day"),
+        ("weight_kg", "kg", "Trend weight"),
+        ("change_percent", "%", "Change from the starting weight"),
+    ];
+
+    fn read(r: &RowReader<'_>) -> Result<Self, ViewError> {
+        let week = r.required("week", r.number("week")?)?;
+        Ok(TrajectoryRow {
+            week: week as u32,
+            date: r.required("date", r.date("date")?)?,
+            weight_kg: r.required("weight_kg", r.number("weight_kg")?)?,
+            change_percent: r.required("change_percent", r.number("change_percent")?)?,
+        })
+    }
+
+    fn write(&self) -> Vec<Cell> {
+        vec![
+            cell::number(Some(f64::from(self.week))),
+            cell::date(Some(self.date)),
+            cell::number(Some(self.weight_kg)),
+            cell::number(Some(self.change_percent)),
+        ]
+    }
+}
 
 /// One row of the `milestones` table.
 #[derive(Debug, Clone, PartialEq)]
@@ -276,6 +324,8 @@ pub struct OutcomesView {
     pub milestones: Vec<MilestoneRow>,
     /// Lab results.
     pub labs: Vec<LabRow>,
+    /// Change from the starting weight by week since enrolment.
+    pub trajectory: Vec<TrajectoryRow>,
     /// Flags.
     pub flags: Vec<TypedFlag<OutcomesFlag>>,
 }
@@ -308,6 +358,7 @@ impl ModuleView for OutcomesView {
             current_weight_source: r.code(CURRENT_WEIGHT_SOURCE)?,
             milestones: r.table(MILESTONES)?,
             labs: r.table(LABS)?,
+            trajectory: r.table(TRAJECTORY)?,
             flags: r.flags()?,
         })
     }
@@ -335,6 +386,7 @@ impl ModuleView for OutcomesView {
         w.code(CURRENT_WEIGHT_SOURCE, self.current_weight_source);
         w.table(MILESTONES, MILESTONES_LABEL, &self.milestones);
         w.table(LABS, LABS_LABEL, &self.labs);
+        w.table(TRAJECTORY, TRAJECTORY_LABEL, &self.trajectory);
         w.flags(&self.flags);
     }
 }
