@@ -48,6 +48,9 @@ pub fn cache_path(id: &str) -> String {
 pub struct RunKey {
     /// `cohortpress X.Y.Z`.
     pub tool: String,
+    /// [`build_fingerprint`]: the version number alone stays the same across builds whose
+    /// estimators differ, and `--incremental` reused results a changed build would not give.
+    pub build: String,
     /// blake3 of `program.yaml`.
     pub program_yaml: String,
     /// blake3 over the template folder's files (`built-in` without one).
@@ -62,6 +65,27 @@ pub struct RunKey {
     pub as_of: String,
     /// Formats written.
     pub formats: Vec<String>,
+}
+
+/// blake3 of the running executable's bytes, read once per process: two runs share partial
+/// results only when the same build made them. An executable that cannot be read gives a value
+/// of this process alone (its id and start time), so nothing is shared rather than something
+/// stale.
+pub fn build_fingerprint() -> &'static str {
+    static FINGERPRINT: std::sync::OnceLock<String> = std::sync::OnceLock::new();
+    FINGERPRINT.get_or_init(|| {
+        let exe = std::env::current_exe().and_then(std::fs::File::open);
+        let mut h = blake3::Hasher::new();
+        match exe.and_then(|f| h.update_reader(f).map(|_| ())) {
+            Ok(()) => h.finalize().to_hex().to_string(),
+            Err(_) => {
+                let now = std::time::SystemTime::now()
+                    .duration_since(std::time::UNIX_EPOCH)
+                    .map_or(0, |d| d.as_nanos());
+                format!("unreadable-{}-{now}", std::process::id())
+            }
+        }
+    })
 }
 
 impl RunKey {

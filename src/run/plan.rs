@@ -354,7 +354,7 @@ fn format_name(f: &Format) -> String {
 }
 
 /// The run key: hashes of `program.yaml` and the template folder, the modules' settings,
-/// period, as-of date, formats and tool version.
+/// period, as-of date, formats, tool version and build.
 pub fn run_key(
     program: &Program,
     modules: &ModuleSet,
@@ -394,6 +394,7 @@ pub fn run_key(
     };
     Ok(RunKey {
         tool: format!("cohortpress {}", env!("CARGO_PKG_VERSION")),
+        build: super::partial::build_fingerprint().to_string(),
         program_yaml,
         templates,
         modules: modules.settings_fingerprint(),

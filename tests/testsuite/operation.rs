@@ -535,6 +535,58 @@ fn an_incremental_run_recomputes_only_what_changed_and_equals_a_full_run() {
     );
 }
 
+/// Another build of the same version (its estimators may differ) shares no partial results:
+/// the version number alone was the key, so an upgraded binary run with `--incremental` reused
+/// the old build's figures. Another build is simulated by a copy of the binary with one byte
+/// appended (trailing bytes do not change what an ELF executable runs).
+#[test]
+fn an_incremental_run_by_another_build_recomputes_everybody() {
+    let t = ProgramTest::demo(3);
+    let inc = out(&t, "inc");
+    assert_eq!(run(&t, &inc, &[]).code, 0);
+    let other = t.dir.parent().unwrap().join("cohortpress-other-build");
+    let mut bytes = std::fs::read(BIN).unwrap();
+    bytes.push(0);
+    std::fs::write(&other, bytes).unwrap();
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        std::fs::set_permissions(&other, std::fs::Permissions::from_mode(0o755)).unwrap();
+    }
+    let r = Command::new(&other)
+        .args([
+            "run",
+            t.dir.to_str().unwrap(),
+            "--as-of",
+            AS_OF,
+            "--out",
+            &inc,
+        ])
+        .arg("--incremental")
+        .current_dir(&t.dir)
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&r.stderr);
+    assert_eq!(r.status.code(), Some(0), "{stderr}");
+    assert!(
+        stderr.contains("0 participants reused, 3 recomputed"),
+        "{stderr}"
+    );
+    // The same build again reuses what it wrote.
+    let same = run(&t, &inc, &["--incremental"]);
+    assert!(
+        same.stderr.contains("0 participants reused, 3 recomputed"),
+        "{}",
+        same.stderr
+    );
+    let again = run(&t, &inc, &["--incremental"]);
+    assert!(
+        again.stderr.contains("3 participants reused, 0 recomputed"),
+        "{}",
+        again.stderr
+    );
+}
+
 /// A partial result written before a failed external module's own words were kept out of the
 /// outputs (format 1) could hold them (a traceback with the user's home folder); reused by
 /// `--incremental`, they were copied into metrics/participants.json. A record of that format is
