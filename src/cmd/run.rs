@@ -10,6 +10,18 @@ use chrono::NaiveDate;
 use std::path::Path;
 use std::time::Instant;
 
+/// Logs a run's or merge's last line: at INFO for a clean run, at WARN otherwise, so that a
+/// `--quiet` run (which logs from WARN) still ends with the line that carries its exit code.
+macro_rules! last_line {
+    ($code:expr, $($t:tt)*) => {
+        if $code == exit_code::SUCCESS {
+            tracing::info!($($t)*)
+        } else {
+            tracing::warn!($($t)*)
+        }
+    };
+}
+
 /// The plain options of `run` (no clap types past this point).
 pub fn run_options(args: &RunArgs) -> RunOptions {
     RunOptions {
@@ -147,7 +159,8 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
             // The exit code rides on the last line too, for log collectors that keep the
             // JSON lines but not the process's status, and so do the counts behind it.
             let c = Counts::of(&summary);
-            tracing::info!(
+            last_line!(
+                code,
                 exit_code = code,
                 reported = c.reported,
                 participants_with_errors = c.with_errors,
@@ -197,7 +210,8 @@ pub fn merge_command(args: &MergeArgs) -> i32 {
             let code = summary_code(&summary);
             let c = Counts::of(&summary);
             // The last line carries the exit code, as a run's does.
-            tracing::info!(
+            last_line!(
+                code,
                 exit_code = code,
                 reported = c.reported,
                 participants_with_errors = c.with_errors,

@@ -1053,4 +1053,25 @@ fn a_run_that_ends_with_warnings_says_how_many_and_why_in_its_log() {
         "{}",
         r.stderr
     );
+    // With --quiet (WARN and above) the last line still carries the exit code: a run that is
+    // not clean logs it at WARN. A clean quiet run logs no last line (only warnings such as the
+    // new ledger's).
+    let r = run(
+        &t,
+        &out(&t, "q"),
+        &["--log-format", "json", "--formats", "html", "--quiet"],
+    );
+    assert_eq!(r.code, cohortpress::exit_code::WARNINGS, "{}", r.stderr);
+    let lines = json_lines("quiet", &r.stderr);
+    let done = lines.last().unwrap();
+    assert_eq!(done["level"], "WARN", "{done}");
+    assert_eq!(done["fields"]["exit_code"], 1, "{done}");
+    std::fs::remove_file(t.dir.join("participants/notes.txt")).unwrap();
+    let r = run(
+        &t,
+        &out(&t, "clean"),
+        &["--log-format", "json", "--formats", "html", "--quiet"],
+    );
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(!r.stderr.contains("done in"), "{}", r.stderr);
 }
