@@ -10,18 +10,6 @@ use chrono::NaiveDate;
 use std::path::Path;
 use std::time::Instant;
 
-/// Logs a run's or merge's last line: at INFO for a clean run, at WARN otherwise, so that a
-/// `--quiet` run (which logs from WARN) still ends with the line that carries its exit code.
-macro_rules! last_line {
-    ($code:expr, $($t:tt)*) => {
-        if $code == exit_code::SUCCESS {
-            tracing::info!($($t)*)
-        } else {
-            tracing::warn!($($t)*)
-        }
-    };
-}
-
 /// The plain options of `run` (no clap types past this point).
 pub fn run_options(args: &RunArgs) -> RunOptions {
     RunOptions {
@@ -89,6 +77,39 @@ impl Counts {
             module_failures: s.module_failures,
             warnings: s.warnings + s.program_warnings,
         }
+    }
+
+    /// Logs a run's or merge's last line, `what` then the counts as fields and the exit code:
+    /// at INFO for a clean run, at WARN otherwise, so that a `--quiet` run (which logs from
+    /// WARN) still ends with the line that carries its exit code.
+    fn log_last_line(&self, code: i32, what: std::fmt::Arguments<'_>) {
+        macro_rules! line {
+            ($level:ident) => {
+                tracing::$level!(
+                    exit_code = code,
+                    reported = self.reported,
+                    participants_with_errors = self.with_errors,
+                    module_failures = self.module_failures,
+                    warnings = self.warnings,
+                    "{what}"
+                )
+            };
+        }
+        if code == exit_code::SUCCESS {
+            line!(info);
+        } else {
+            line!(warn);
+        }
+    }
+}
+
+impl std::fmt::Display for Counts {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "{} participants reported, {} with errors, {} module failures, {} warnings",
+            self.reported, self.with_errors, self.module_failures, self.warnings
+        )
     }
 }
 
@@ -159,20 +180,14 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
             // The exit code rides on the last line too, for log collectors that keep the
             // JSON lines but not the process's status, and so do the counts behind it.
             let c = Counts::of(&summary);
-            last_line!(
+            c.log_last_line(
                 code,
-                exit_code = code,
-                reported = c.reported,
-                participants_with_errors = c.with_errors,
-                module_failures = c.module_failures,
-                warnings = c.warnings,
-                "done in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
-                started.elapsed().as_secs_f64(),
-                c.reported,
-                c.with_errors,
-                c.module_failures,
-                c.warnings,
-                plan.out_dir.display()
+                format_args!(
+                    "done in {:.1} s: {}; outputs in {}",
+                    started.elapsed().as_secs_f64(),
+                    c,
+                    plan.out_dir.display()
+                ),
             );
             code
         }
@@ -210,21 +225,15 @@ pub fn merge_command(args: &MergeArgs) -> i32 {
             let code = summary_code(&summary);
             let c = Counts::of(&summary);
             // The last line carries the exit code, as a run's does.
-            last_line!(
+            c.log_last_line(
                 code,
-                exit_code = code,
-                reported = c.reported,
-                participants_with_errors = c.with_errors,
-                module_failures = c.module_failures,
-                warnings = c.warnings,
-                "merged {} shards in {:.1} s: {} participants reported, {} with errors, {} module failures, {} warnings; outputs in {}",
-                shards,
-                started.elapsed().as_secs_f64(),
-                c.reported,
-                c.with_errors,
-                c.module_failures,
-                c.warnings,
-                plan.display()
+                format_args!(
+                    "merged {} shards in {:.1} s: {}; outputs in {}",
+                    shards,
+                    started.elapsed().as_secs_f64(),
+                    c,
+                    plan.display()
+                ),
             );
             code
         }
