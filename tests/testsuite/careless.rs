@@ -680,3 +680,61 @@ fn a_path_starting_with_a_tilde_is_refused_not_made_into_a_folder_named_tilde() 
         assert!(!t.dir.join("~").exists());
     }
 }
+
+/// The longest run of digits in `s`.
+fn longest_digit_run(s: &str) -> usize {
+    s.split(|c: char| !c.is_ascii_digit())
+        .map(str::len)
+        .max()
+        .unwrap_or(0)
+}
+
+/// A weight, an intake and a lab value of 1e308 written out (309 digits, as a spreadsheet
+/// exports a number typed with an exponent) and a program target of `1e308`: every message
+/// quoted the number in full — hundreds of zeros in `check`'s lines, the JSON, the participant's
+/// report and the data-quality list. Each is shown by its first and last digits and its length,
+/// and the YAML float as `1e308`.
+#[test]
+fn a_number_of_hundreds_of_digits_is_shown_compactly() {
+    let t = ProgramTest::fixture("report-small");
+    let big = format!("1{}", "0".repeat(308));
+    let p = t.dir.join("participants/SG-003");
+    let append = |file: &str, row: String| {
+        let mut text = fs::read_to_string(p.join(file)).unwrap();
+        text.push_str(&row);
+        fs::write(p.join(file), text).unwrap();
+    };
+    append("weights.csv", format!("2026-09-09,{big},lb,home-scale\n"));
+    append("intake.csv", format!("2026-09-09,{big}\n"));
+    append("labs.csv", format!("2026-09-09,hba1c,{big},%\n"));
+    for format in ["text", "json"] {
+        let c = t.run(&["check", "{dir}", "--as-of", AS_OF, "--format", format]);
+        assert_eq!(c.code, 1, "{c:?}");
+        assert!(longest_digit_run(&c.stdout) <= 24, "{}", c.stdout);
+        // The weight's, the lab value's and the intake's, each found as compacted.
+        assert!(
+            c.stdout.matches("100000…000 (309 digits)").count() >= 3,
+            "{format}: {}",
+            c.stdout
+        );
+    }
+    let o = run(&t, "html");
+    assert_eq!(o.code, 1, "{o:?}");
+    let out = out_dir(&t);
+    for file in ["participants/SG-003.html", "metrics/data-quality.csv"] {
+        let text = fs::read_to_string(out.join(file)).unwrap();
+        assert!(longest_digit_run(&text) <= 24, "{file}");
+        assert!(text.contains("(309 digits)"), "{file}");
+    }
+    // A target in program.yaml read as a YAML float.
+    let yaml = fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace("weight_change_percent: -5", "weight_change_percent: 1e308");
+    fs::write(t.dir.join("program.yaml"), yaml).unwrap();
+    let c = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(c.code, 3, "{c:?}");
+    assert!(
+        c.stdout.contains("target out of range: 1e308") && c.stdout.contains("found: 1e308"),
+        "{}",
+        c.stdout
+    );
+}
