@@ -24,6 +24,9 @@ pub struct CheckReport {
     /// [`crate::cmd::check`], which knows the options): a run stops on them, with exit code 6,
     /// before any participant is computed.
     pub ledger: Vec<Diagnostic>,
+    /// Problems of the output folder a run would stop on with exit code 6 (filled by
+    /// [`crate::cmd::check`]): the folder it is written in cannot be written.
+    pub output: Vec<Diagnostic>,
 }
 
 impl CheckReport {
@@ -49,6 +52,7 @@ impl CheckReport {
         program
             .iter()
             .chain(&self.discovery)
+            .chain(&self.output)
             .chain(&self.ledger)
             .chain(self.participants.iter().flat_map(|p| &p.diagnostics))
     }
@@ -107,6 +111,7 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
             participants: Vec::new(),
             discovery: Vec::new(),
             ledger: Vec::new(),
+            output: Vec::new(),
         };
     };
     let (dirs, discovery) = participant::discover(prog);
@@ -131,5 +136,6 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
         participants,
         discovery,
         ledger: Vec::new(),
+        output: Vec::new(),
     }
 }

@@ -145,6 +145,27 @@ impl OutputTarget {
         check_not_inputs(&out, self)?;
         check_replaceable(&out, self)
     }
+
+    /// The folder a run of this target writes its lock file, staging folder and the new
+    /// output in (the output folder's parent, or the nearest existing folder above it, where
+    /// the run would create it) when this process may not write it (`access(2)` with `W_OK`: a
+    /// read-only file system, or a folder of someone else's), with the reason. `check --out`
+    /// on a read-only file system said ok, and the run stopped at its lock file with exit 6.
+    pub fn write_problem(&self) -> Option<(PathBuf, std::io::Error)> {
+        let out = resolve_output(&self.dir, self.named_by).ok()?;
+        let parent = out
+            .parent()
+            .map(Path::to_path_buf)
+            .unwrap_or_else(|| "/".into());
+        let existing = parent.ancestors().find(|a| a.is_dir())?;
+        #[cfg(unix)]
+        if let Err(e) = rustix::fs::access(existing, rustix::fs::Access::WRITE_OK) {
+            return Some((existing.to_path_buf(), e.into()));
+        }
+        #[cfg(not(unix))]
+        let _ = existing;
+        None
+    }
 }
 
 /// A staging folder being filled; [`Staging::commit`] swaps it into place.

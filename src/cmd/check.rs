@@ -27,7 +27,11 @@ pub fn exit_code_of(report: &CheckReport) -> i32 {
     exit_code::Outcome {
         program_invalid: report.program_invalid(),
         participants_left_out: left_out,
-        output_unusable: report.ledger.iter().any(|d| d.severity == Severity::Error),
+        output_unusable: report
+            .ledger
+            .iter()
+            .chain(&report.output)
+            .any(|d| d.severity == Severity::Error),
         module_failures: 0,
         warnings,
     }
@@ -291,6 +295,13 @@ pub fn write_report_with(
             writeln!(out, "{d}")?;
         }
     }
+    if !report.output.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "output folder:")?;
+        for d in &report.output {
+            writeln!(out, "{d}")?;
+        }
+    }
     if !report.ledger.is_empty() {
         writeln!(out)?;
         writeln!(out, "group-report ledger:")?;
@@ -497,6 +508,26 @@ pub fn run_check_with(
             report.participants.clear();
             report.discovery.clear();
         } else {
+            if let Some((folder, e)) = target.write_problem() {
+                report.output.push(
+                    Diagnostic::error(
+                        folder.display().to_string(),
+                        format!(
+                            "the output folder ({named_by}) cannot be written here ({e}); a run \
+                             writes its lock file, staging folder and new output in this folder, \
+                             so it would stop with exit code 6"
+                        ),
+                    )
+                    .hint(format!(
+                        "name an output folder this run can write with {}",
+                        if named_by == "--out" {
+                            "--out"
+                        } else {
+                            "--out (or report.out)"
+                        }
+                    )),
+                );
+            }
             match ledger_problems(prog, opts.state.as_deref(), opts.out.as_deref()) {
                 Ok(diags) => report.ledger = diags,
                 // `--state` refused as `run` refuses it: a wrong command line (exit 2).

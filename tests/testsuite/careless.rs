@@ -738,3 +738,93 @@ fn a_number_of_hundreds_of_digits_is_shown_compactly() {
         c.stdout
     );
 }
+
+/// `check --out DIR` with DIR on a file system mounted read-only (a restored backup, a share
+/// mounted `ro`), the ledger named elsewhere with `--state`: `check` said ok (exit 0), and the
+/// run stopped at its lock file, "Read-only file system", exit 6. `check` now names the folder
+/// and exits 6 as the run does, for a folder there already and for a new one, and for
+/// `report.out` too. Needs the right to mount (root, as on the project's test machine); skipped
+/// with a message without it. (Root ignores permission bits, so a folder without write
+/// permission is not tested here; `access(2)` judges both alike.)
+#[test]
+fn check_says_an_output_folder_on_a_read_only_file_system_cannot_be_written() {
+    let t = ProgramTest::fixture("report-small");
+    let mnt = t.dir.parent().unwrap().join("ro");
+    fs::create_dir(&mnt).unwrap();
+    let mounted = std::process::Command::new("mount")
+        .args(["-t", "tmpfs", "-o", "size=16m", "tmpfs"])
+        .arg(&mnt)
+        .stderr(std::process::Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success());
+    if !mounted {
+        eprintln!("skipped: cannot mount a tmpfs here (not root)");
+        return;
+    }
+    let _guard = Mounted(mnt.clone());
+    fs::create_dir(mnt.join("reports")).unwrap();
+    let remounted = std::process::Command::new("mount")
+        .args(["-o", "remount,ro"])
+        .arg(&mnt)
+        .status()
+        .is_ok_and(|s| s.success());
+    assert!(remounted, "remount read-only");
+    let state = t.dir.parent().unwrap().join("state");
+    let state = state.to_str().unwrap();
+    for out in [mnt.join("reports"), mnt.join("new/reports")] {
+        let out = out.to_str().unwrap();
+        let c = t.run(&[
+            "check", "{dir}", "--as-of", AS_OF, "--out", out, "--state", state,
+        ]);
+        assert_eq!(c.code, 6, "{out}: {c:?}");
+        assert!(
+            c.stdout.contains(&format!(
+                "error: {}: the output folder (--out) cannot be written here (Read-only file system",
+                mnt.display()
+            )),
+            "{}",
+            c.stdout
+        );
+        let r = t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            out,
+            "--state",
+            state,
+        ]);
+        assert_eq!(r.code, c.code, "{out}: {r:?}");
+    }
+    // report.out in program.yaml.
+    let yaml = fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace(
+        "out: reports",
+        &format!("out: {}", mnt.join("reports").display()),
+    );
+    fs::write(t.dir.join("program.yaml"), yaml).unwrap();
+    let c = t.run(&["check", "{dir}", "--as-of", AS_OF, "--state", state]);
+    assert_eq!(c.code, 6, "{c:?}");
+    assert!(
+        c.stdout
+            .contains("the output folder (report.out) cannot be written"),
+        "{}",
+        c.stdout
+    );
+    // A writable folder is still fine.
+    let ok = t.dir.parent().unwrap().join("fine");
+    let c = t.run(&[
+        "check",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--out",
+        ok.to_str().unwrap(),
+        "--state",
+        state,
+    ]);
+    assert_eq!(c.code, 0, "{c:?}");
+}
