@@ -124,7 +124,12 @@ pub fn write_report_with(
             )?;
             return Ok(());
         }
-        Ok(p) => writeln!(out, "program {} ({}): ok", p.info.id, p.info.title)?,
+        Ok(p) => writeln!(
+            out,
+            "program {} ({}): ok",
+            diag::printable(&p.info.id),
+            diag::printable(&p.info.title)
+        )?,
     }
     writeln!(out, "{}", report.summary())?;
 
@@ -209,9 +214,13 @@ pub fn write_report_with(
                 "  {} ×{}{who}:{eg} {}",
                 severity_word(*sev),
                 k.count,
-                first.message
+                diag::printable(&first.message)
             )?;
-            let at: Vec<String> = k.examples.iter().map(|d| d.location()).collect();
+            let at: Vec<String> = k
+                .examples
+                .iter()
+                .map(|d| diag::printable(&d.location()).into_owned())
+                .collect();
             let more = if k.count > at.len() { ", …" } else { "" };
             writeln!(out, "      at {}{more}", at.join(", "))?;
         }
@@ -264,17 +273,23 @@ pub fn write_report_with(
         };
         for (msg, ns) in list.iter().take(shown) {
             if ns.len() == 1 {
-                writeln!(out, "  {}: {msg}", ns[0].file)?;
+                writeln!(
+                    out,
+                    "  {}: {}",
+                    diag::printable(&ns[0].file),
+                    diag::printable(msg)
+                )?;
             } else {
                 let people: std::collections::BTreeSet<&str> =
                     ns.iter().map(|n| n.participant.as_str()).collect();
                 writeln!(
                     out,
-                    "  {} files of {} participant{}, e.g. {}: {msg}",
+                    "  {} files of {} participant{}, e.g. {}: {}",
                     ns.len(),
                     people.len(),
                     plural(people.len()),
-                    ns[0].file
+                    diag::printable(&ns[0].file),
+                    diag::printable(msg)
                 )?;
             }
         }
@@ -334,7 +349,7 @@ pub fn write_report_with(
             format!(" ({})", counts.join(", "))
         };
         writeln!(out)?;
-        writeln!(out, "{}: {status}{counts}", p.id)?;
+        writeln!(out, "{}: {status}{counts}", diag::printable(&p.id))?;
         // Errors first: the one that makes a participant unusable is what to fix first, and it
         // came after every row warning of the files read before profile.yaml.
         let mut diags: Vec<&Diagnostic> = p.diagnostics.iter().collect();
@@ -344,7 +359,12 @@ pub fn write_report_with(
                 writeln!(out, "{d}")?;
             }
             for n in &p.notes {
-                writeln!(out, "note: {}: {}", n.file, n.message)?;
+                writeln!(
+                    out,
+                    "note: {}: {}",
+                    diag::printable(&n.file),
+                    diag::printable(&n.message)
+                )?;
             }
             continue;
         }
@@ -385,7 +405,7 @@ pub fn write_report_with(
                 writeln!(
                     out,
                     "  … and {rest} more like this in {} (line{} {}{etc})",
-                    key.2,
+                    diag::printable(key.2),
                     if lines.len() == 1 { "" } else { "s" },
                     lines.join(", ")
                 )?;
@@ -399,7 +419,7 @@ pub fn write_report_with(
                  error{} above {} fixed, and some warnings may follow from {}; `check --verbose` \
                  lists them",
                 plural(w),
-                per_file.join(", "),
+                diag::printable(&per_file.join(", ")),
                 plural(e),
                 if e == 1 { "is" } else { "are" },
                 if e == 1 { "it" } else { "them" },
