@@ -828,3 +828,46 @@ fn check_says_an_output_folder_on_a_read_only_file_system_cannot_be_written() {
     ]);
     assert_eq!(c.code, 0, "{c:?}");
 }
+
+/// An output folder whose name is not UTF-8 (a Latin-1 `é` from an old script: byte 0xE9): its
+/// lock file, staging folder, previous copy and ledger were named from the name's text, with
+/// U+FFFD for the byte, so `rapport\xe9` and `rapport\xe8` shared one lock, one staging folder,
+/// one previous copy and one ledger, none of them `<out>.ledger`. Named byte for byte now.
+#[test]
+fn an_output_folder_name_that_is_not_utf8_gets_files_of_its_own() {
+    use std::os::unix::ffi::OsStrExt;
+    let t = ProgramTest::fixture("report-small");
+    let parent = t.dir.parent().unwrap().to_path_buf();
+    let name = |b: u8| {
+        let mut v = b"rapport".to_vec();
+        v.push(b);
+        std::ffi::OsStr::from_bytes(&v).to_os_string()
+    };
+    for b in [0xe9, 0xe8] {
+        let out = parent.join(name(b));
+        let o = t.run_os(&[
+            "run".as_ref(),
+            "{dir}".as_ref(),
+            "--as-of".as_ref(),
+            AS_OF.as_ref(),
+            "--formats".as_ref(),
+            "html".as_ref(),
+            "--out".as_ref(),
+            out.as_os_str(),
+        ]);
+        assert_eq!(o.code, 0, "{o:?}");
+        let mut ledger = name(b);
+        ledger.push(".ledger");
+        assert!(parent.join(&ledger).join("ledger.json").is_file(), "{o:?}");
+        let mut lock = std::ffi::OsString::from(".");
+        lock.push(name(b));
+        lock.push(".lock");
+        assert!(parent.join(&lock).is_file());
+    }
+    let real: Vec<_> = fs::read_dir(&parent)
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .filter(|n| n.as_bytes().contains(&0xef))
+        .collect();
+    assert!(real.is_empty(), "a name with U+FFFD written: {real:?}");
+}
