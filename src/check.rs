@@ -28,6 +28,9 @@ pub struct CheckReport {
     /// (filled by [`crate::cmd::check`]): a participant's page without the cautions, on which a
     /// run stops with exit code 6 and publishes nothing.
     pub templates: Vec<Diagnostic>,
+    /// Problems of the output folder a run would stop on with exit code 6 (filled by
+    /// [`crate::cmd::check`]): the folder it is written in cannot be written.
+    pub output: Vec<Diagnostic>,
 }
 
 impl CheckReport {
@@ -53,6 +56,7 @@ impl CheckReport {
         program
             .iter()
             .chain(&self.discovery)
+            .chain(&self.output)
             .chain(&self.ledger)
             .chain(&self.templates)
             .chain(self.participants.iter().flat_map(|p| &p.diagnostics))
@@ -113,6 +117,7 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
             discovery: Vec::new(),
             ledger: Vec::new(),
             templates: Vec::new(),
+            output: Vec::new(),
         };
     };
     let (dirs, discovery) = participant::discover(prog);
@@ -138,5 +143,6 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
         discovery,
         ledger: Vec::new(),
         templates: Vec::new(),
+        output: Vec::new(),
     }
 }

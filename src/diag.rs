@@ -208,6 +208,7 @@ impl fmt::Display for Diagnostic {
 /// without a delimiter was quoted whole in the message, the log, the data-quality list and the
 /// participant's partial result (800 MB resident for one participant).
 fn clip(s: String) -> String {
+    let s = compact_digits(s);
     match s
         .char_indices()
         .nth(crate::limits::MAX_DIAGNOSTIC_TEXT_CHARS)
@@ -217,6 +218,62 @@ fn clip(s: String) -> String {
             let rest = s[cut..].chars().count();
             format!("{}… ({} more characters)", &s[..cut], thousands(rest))
         }
+    }
+}
+
+/// Longest run of digits a diagnostic shows whole. No measured value needs more (an `f64`
+/// holds 17 significant digits); longer runs are a number such as `1e308` printed in full
+/// or a cell of hundreds of digits.
+const MAX_DIGIT_RUN: usize = 24;
+
+/// `s` with each run of more than [`MAX_DIGIT_RUN`] ASCII digits shown by its first six and last
+/// three digits and its length: `1000000…000 (309 digits)`. A weight, lab value or intake of
+/// `1e308` (a 309-digit cell, or a YAML float printed with `{}`) filled the message, the
+/// terminal and the log with hundreds of zeros.
+fn compact_digits(s: String) -> String {
+    let b = s.as_bytes();
+    let mut longest = 0;
+    let mut run = 0;
+    for &c in b {
+        run = if c.is_ascii_digit() { run + 1 } else { 0 };
+        longest = longest.max(run);
+    }
+    if longest <= MAX_DIGIT_RUN {
+        return s;
+    }
+    let mut out = String::with_capacity(64);
+    let mut rest = s.as_str();
+    while let Some(start) = rest.find(|c: char| c.is_ascii_digit()) {
+        out.push_str(&rest[..start]);
+        let digits = &rest[start..];
+        let len = digits
+            .find(|c: char| !c.is_ascii_digit())
+            .unwrap_or(digits.len());
+        if len > MAX_DIGIT_RUN {
+            out.push_str(&format!(
+                "{}…{} ({} digits)",
+                &digits[..6],
+                &digits[len - 3..len],
+                thousands(len)
+            ));
+        } else {
+            out.push_str(&digits[..len]);
+        }
+        rest = &digits[len..];
+    }
+    out.push_str(rest);
+    out
+}
+
+/// A number read from an input, for a message: as Rust prints it from 0.000001 to below 10^15
+/// (`72.5`, `-5`, `0.001`), else in exponent form (`1e308`, `1.5e-12`), never hundreds of
+/// digits.
+pub fn number(v: f64) -> String {
+    let a = v.abs();
+    if a == 0.0 || !v.is_finite() || (1e-6..1e15).contains(&a) {
+        v.to_string()
+    } else {
+        format!("{v:e}")
     }
 }
 
@@ -322,6 +379,33 @@ pub fn thousands(n: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn hundreds_of_digits_are_shown_compactly() {
+        let big = format!("1{}", "0".repeat(308));
+        let d = Diagnostic::warning("w.csv", format!("implausible intake of {big} kcal"))
+            .found(format!("`{big}`"))
+            .expected("at most 10000 kcal");
+        assert_eq!(
+            d.message,
+            "implausible intake of 100000…000 (309 digits) kcal"
+        );
+        assert_eq!(d.found.as_deref(), Some("`100000…000 (309 digits)`"));
+        // Ordinary numbers, dates and 24 digits are untouched.
+        let ok = "72.5 kg on 2026-04-09, 123456789012345678901234";
+        assert_eq!(Diagnostic::warning("w.csv", ok).message, ok);
+        // A tiny value printed in full is a run of zeros after the point.
+        assert_eq!(
+            compact_digits(format!("{}", 1e-300)),
+            "0.000000…001 (300 digits)"
+        );
+        assert_eq!(number(1e308), "1e308");
+        assert_eq!(number(-1.5e-12), "-1.5e-12");
+        assert_eq!(number(f64::MAX), "1.7976931348623157e308");
+        assert_eq!(number(72.5), "72.5");
+        assert_eq!(number(-5.0), "-5");
+        assert_eq!(number(10000.0), "10000");
+    }
 
     #[test]
     fn control_characters_are_shown_escaped() {

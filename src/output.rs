@@ -145,6 +145,27 @@ impl OutputTarget {
         check_not_inputs(&out, self)?;
         check_replaceable(&out, self)
     }
+
+    /// The folder a run of this target writes its lock file, staging folder and the new
+    /// output in (the output folder's parent, or the nearest existing folder above it, where
+    /// the run would create it) when this process may not write it (`access(2)` with `W_OK`: a
+    /// read-only file system, or a folder of someone else's), with the reason. `check --out`
+    /// on a read-only file system said ok, and the run stopped at its lock file with exit 6.
+    pub fn write_problem(&self) -> Option<(PathBuf, std::io::Error)> {
+        let out = resolve_output(&self.dir, self.named_by).ok()?;
+        let parent = out
+            .parent()
+            .map(Path::to_path_buf)
+            .unwrap_or_else(|| "/".into());
+        let existing = parent.ancestors().find(|a| a.is_dir())?;
+        #[cfg(unix)]
+        if let Err(e) = rustix::fs::access(existing, rustix::fs::Access::WRITE_OK) {
+            return Some((existing.to_path_buf(), e.into()));
+        }
+        #[cfg(not(unix))]
+        let _ = existing;
+        None
+    }
 }
 
 /// A staging folder being filled; [`Staging::commit`] swaps it into place.
@@ -644,6 +665,17 @@ fn check_replaceable(out_dir: &Path, target: &OutputTarget) -> Result<(), Stagin
     Ok(())
 }
 
+/// `.NAME SUFFIX` as one file name, byte for byte: the staging folder, lock file and previous
+/// copy of the output folder `NAME`. Made from the name's text, a name that is not UTF-8 (`\xff`)
+/// was written `\u{fffd}`, so two output folders differing there shared one lock, one staging
+/// folder and one previous copy.
+fn sibling(name: &std::ffi::OsStr, suffix: &str) -> std::ffi::OsString {
+    let mut s = std::ffi::OsString::from(".");
+    s.push(name);
+    s.push(suffix);
+    s
+}
+
 impl Staging {
     /// Takes the lock for the target's output folder (links resolved), checks the folder may
     /// be replaced by this run, and prepares an empty staging folder beside it.
@@ -652,7 +684,7 @@ impl Staging {
         check_not_inputs(&out_dir, target)?;
         let name = out_dir
             .file_name()
-            .map(|n| n.to_string_lossy().into_owned())
+            .map(std::ffi::OsStr::to_os_string)
             .ok_or_else(|| {
                 StagingError::Refused(format!(
                     "the output folder {} ({}) has no folder name",
@@ -666,14 +698,14 @@ impl Staging {
             .unwrap_or_else(|| PathBuf::from("/"));
         // Refuse before the lock file is created, so a refused run leaves no trace; checked again
         // under the lock below, after any recovery.
-        let previous = parent.join(format!(".{name}.previous"));
+        let previous = parent.join(sibling(&name, ".previous"));
         if fs::symlink_metadata(&out_dir).is_ok() {
             check_replaceable(&out_dir, target)?;
         } else if fs::symlink_metadata(&previous).is_ok() && !is_our_folder(&previous) {
             return Err(in_the_way(&previous));
         }
         create_parents(&parent)?;
-        let lock_path = parent.join(format!(".{name}.lock"));
+        let lock_path = parent.join(sibling(&name, ".lock"));
         let lock = crate::limits::open_lock_file(&lock_path).map_err(io(&lock_path))?;
         match lock.try_lock() {
             Ok(()) => {}
@@ -686,7 +718,7 @@ impl Staging {
             }
             Err(fs::TryLockError::Error(e)) => return Err(io(&lock_path)(e)),
         }
-        let dir = parent.join(format!(".{name}.staging"));
+        let dir = parent.join(sibling(&name, ".staging"));
         // A run killed between the two renames of a commit left the complete previous output
         // here: put it back before anything else. A previous copy beside a complete output is
         // a removal that failed (a read-only folder, say): finish it.

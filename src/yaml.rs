@@ -241,6 +241,19 @@ fn scalar_at(text: &str, line: u64, column: u64) -> Option<String> {
     (!v.is_empty()).then_some(v)
 }
 
+/// The token (an alias `*name`, an anchor `&name`) at 1-based `line` and 0-based `col` of
+/// `text`: up to white space, a flow indicator or the line's end; at most 64 characters.
+fn token_at(text: &str, line: usize, col: usize) -> Option<String> {
+    let l = text.lines().nth(line.checked_sub(1)?)?;
+    let t: String = l
+        .chars()
+        .skip(col)
+        .take_while(|c| !c.is_whitespace() && !matches!(c, ',' | '[' | ']' | '{' | '}'))
+        .take(64)
+        .collect();
+    (!t.is_empty()).then_some(t)
+}
+
 /// Walks the event stream of `text` once, refusing it (with the line and column where a limit
 /// was passed) when it has more than [`MAX_YAML_EVENTS`] events, more than [`MAX_YAML_ALIASES`]
 /// aliases, lists or mappings nested deeper than [`MAX_YAML_DEPTH`], or more than
@@ -256,6 +269,8 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
     let mut anchor_size: Vec<u64> = Vec::new();
     // Open lists and mappings: (anchor id, expanded count when it opened).
     let mut open: Vec<(usize, u64)> = Vec::new();
+    // Where each open list or mapping starts (line, 0-based column), aligned with `open`.
+    let mut open_at: Vec<(usize, usize)> = Vec::new();
     // For each open list or mapping (aligned with `open`): for a mapping, whether its next node
     // is a key, and the plain keys seen so far with their line. serde_yaml refuses a key given
     // twice but names the mapping's first line, not the key; here it is located.
@@ -278,6 +293,21 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
                     // The scanner's own bound on flow nesting (deeper than ours, reached when
                     // it reads ahead): the same refusal as below.
                     return Err(too_deep(file).at(m.line() as u64, Some(m.col() as u64 + 1)));
+                }
+                if e.info().contains("unknown anchor") {
+                    // `*name` with no `&name` before it: say which name, and what an alias is.
+                    let name = token_at(text, m.line(), m.col()).unwrap_or_default();
+                    return Err(Diagnostic::error(
+                        file,
+                        format!("the alias `{name}` refers to no anchor defined before it"),
+                    )
+                    .at(m.line() as u64, Some(m.col() as u64 + 1))
+                    .expected(format!(
+                        "an anchor `&{}` on a value earlier in the file, or a value written out",
+                        name.trim_start_matches('*')
+                    ))
+                    .found(format!("`{name}`"))
+                    .hint("a value starting with `*` is a YAML alias; quote it if it is text (\"*…\")"));
                 }
                 return Err(Diagnostic::error(file, format!("not valid YAML: {}", e.info()))
                     .at(m.line() as u64, Some(m.col() as u64 + 1))
@@ -319,6 +349,7 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
             Event::Scalar(_, _, anchor, _) => set_size(&mut anchor_size, anchor, 1),
             Event::SequenceStart(anchor, _) | Event::MappingStart(anchor, _) => {
                 open.push((anchor, expanded - 1));
+                open_at.push((span.start.line(), span.start.col()));
                 maps.push(
                     matches!(event, Event::MappingStart(..))
                         .then(|| (true, std::collections::HashMap::new())),
@@ -329,11 +360,36 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
             }
             Event::SequenceEnd | Event::MappingEnd => {
                 maps.pop();
+                open_at.pop();
                 if let Some((anchor, start)) = open.pop() {
                     set_size(&mut anchor_size, anchor, expanded - start);
                 }
             }
             Event::Alias(id) => {
+                // An alias inside the very list or mapping its anchor names would stand for a
+                // value that contains itself: serde_yaml recursed until "recursion limit
+                // exceeded", reported at the anchor as nesting too deep.
+                if id > 0
+                    && let Some(pos) = open.iter().position(|&(anchor, _)| anchor == id)
+                {
+                    let (line, col) = open_at[pos];
+                    let name = token_at(text, span.start.line(), span.start.col())
+                        .unwrap_or_else(|| "*".to_string());
+                    return Err(here(
+                        Diagnostic::error(
+                            file,
+                            format!(
+                                "the alias `{name}` is inside the value its anchor `&{}` names \
+                                 (line {line}, column {}): a value cannot contain itself",
+                                name.trim_start_matches('*'),
+                                col + 1
+                            ),
+                        )
+                        .expected("an alias to a value that is complete before it")
+                        .found(format!("`{name}` inside `&{}`", name.trim_start_matches('*'))),
+                    )
+                    .hint("write the value out, or move the alias after the end of the anchored value"));
+                }
                 aliases += 1;
                 if aliases > MAX_YAML_ALIASES {
                     return Err(here(Diagnostic::error(
@@ -617,6 +673,43 @@ mod tests {
         let d = check_budget("a: {x: 1, y: 2, x: 3}\n", "f.yaml").unwrap_err();
         assert_eq!((d.line, d.column), (Some(1), Some(17)), "{d}");
         assert!(check_budget("a: {x: 1}\nb: {x: a}\nc: [x, x]\n", "f.yaml").is_ok());
+    }
+
+    /// An alias inside the value its own anchor names (`groups: &g { site: *g }`) stood for a
+    /// value containing itself: serde_yaml recursed to its limit, and the message was
+    /// "recursion limit exceeded" with the hint to flatten deep nesting. An alias naming no
+    /// anchor said only "while parsing node, found unknown anchor".
+    #[test]
+    fn an_alias_to_itself_or_to_nothing_is_named_with_both_places() {
+        let text = "id: a\ngroups: &g { site: *g }\n";
+        let d = from_str::<serde_yaml::Value>(text, "profile.yaml").unwrap_err();
+        assert_eq!((d.line, d.column), (Some(2), Some(20)), "{d}");
+        assert_eq!(
+            d.message,
+            "the alias `*g` is inside the value its anchor `&g` names (line 2, column 9): \
+             a value cannot contain itself",
+            "{d}"
+        );
+        assert_eq!(d.found.as_deref(), Some("`*g` inside `&g`"));
+        assert!(!d.hint.as_deref().unwrap().contains("nest"), "{d}");
+        // In a block list, deeper down, and through Fields (profile.yaml's reading).
+        let text = "flags: &f\n  - a\n  - [b, *f]\n";
+        let d = Fields::open(text, "profile.yaml").err().unwrap();
+        assert_eq!((d.line, d.column), (Some(3), Some(9)), "{d}");
+        assert!(
+            d.message.contains("`*f`") && d.message.contains("(line 1, column 8)"),
+            "{d}"
+        );
+        // An alias after its anchored value is complete is fine.
+        assert!(check_budget("a: &x [1, 2]\nb: [*x, *x]\n", "f.yaml").is_ok());
+        // An alias to no anchor.
+        let d = check_budget("flags: [a, *nope]\n", "f.yaml").unwrap_err();
+        assert_eq!((d.line, d.column), (Some(1), Some(12)), "{d}");
+        assert_eq!(
+            d.message,
+            "the alias `*nope` refers to no anchor defined before it"
+        );
+        assert_eq!(d.found.as_deref(), Some("`*nope`"));
     }
 
     #[test]

@@ -31,6 +31,7 @@ pub fn exit_code_of(report: &CheckReport) -> i32 {
             .ledger
             .iter()
             .chain(&report.templates)
+            .chain(&report.output)
             .any(|d| d.severity == Severity::Error),
         module_failures: 0,
         warnings,
@@ -124,7 +125,12 @@ pub fn write_report_with(
             )?;
             return Ok(());
         }
-        Ok(p) => writeln!(out, "program {} ({}): ok", p.info.id, p.info.title)?,
+        Ok(p) => writeln!(
+            out,
+            "program {} ({}): ok",
+            diag::printable(&p.info.id),
+            diag::printable(&p.info.title)
+        )?,
     }
     writeln!(out, "{}", report.summary())?;
 
@@ -209,9 +215,13 @@ pub fn write_report_with(
                 "  {} ×{}{who}:{eg} {}",
                 severity_word(*sev),
                 k.count,
-                first.message
+                diag::printable(&first.message)
             )?;
-            let at: Vec<String> = k.examples.iter().map(|d| d.location()).collect();
+            let at: Vec<String> = k
+                .examples
+                .iter()
+                .map(|d| diag::printable(&d.location()).into_owned())
+                .collect();
             let more = if k.count > at.len() { ", …" } else { "" };
             writeln!(out, "      at {}{more}", at.join(", "))?;
         }
@@ -264,17 +274,23 @@ pub fn write_report_with(
         };
         for (msg, ns) in list.iter().take(shown) {
             if ns.len() == 1 {
-                writeln!(out, "  {}: {msg}", ns[0].file)?;
+                writeln!(
+                    out,
+                    "  {}: {}",
+                    diag::printable(&ns[0].file),
+                    diag::printable(msg)
+                )?;
             } else {
                 let people: std::collections::BTreeSet<&str> =
                     ns.iter().map(|n| n.participant.as_str()).collect();
                 writeln!(
                     out,
-                    "  {} files of {} participant{}, e.g. {}: {msg}",
+                    "  {} files of {} participant{}, e.g. {}: {}",
                     ns.len(),
                     people.len(),
                     plural(people.len()),
-                    ns[0].file
+                    diag::printable(&ns[0].file),
+                    diag::printable(msg)
                 )?;
             }
         }
@@ -292,6 +308,13 @@ pub fn write_report_with(
         writeln!(out)?;
         writeln!(out, "participants folder:")?;
         for d in &report.discovery {
+            writeln!(out, "{d}")?;
+        }
+    }
+    if !report.output.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "output folder:")?;
+        for d in &report.output {
             writeln!(out, "{d}")?;
         }
     }
@@ -334,7 +357,7 @@ pub fn write_report_with(
             format!(" ({})", counts.join(", "))
         };
         writeln!(out)?;
-        writeln!(out, "{}: {status}{counts}", p.id)?;
+        writeln!(out, "{}: {status}{counts}", diag::printable(&p.id))?;
         // Errors first: the one that makes a participant unusable is what to fix first, and it
         // came after every row warning of the files read before profile.yaml.
         let mut diags: Vec<&Diagnostic> = p.diagnostics.iter().collect();
@@ -344,7 +367,12 @@ pub fn write_report_with(
                 writeln!(out, "{d}")?;
             }
             for n in &p.notes {
-                writeln!(out, "note: {}: {}", n.file, n.message)?;
+                writeln!(
+                    out,
+                    "note: {}: {}",
+                    diag::printable(&n.file),
+                    diag::printable(&n.message)
+                )?;
             }
             continue;
         }
@@ -385,7 +413,7 @@ pub fn write_report_with(
                 writeln!(
                     out,
                     "  … and {rest} more like this in {} (line{} {}{etc})",
-                    key.2,
+                    diag::printable(key.2),
                     if lines.len() == 1 { "" } else { "s" },
                     lines.join(", ")
                 )?;
@@ -399,7 +427,7 @@ pub fn write_report_with(
                  error{} above {} fixed, and some warnings may follow from {}; `check --verbose` \
                  lists them",
                 plural(w),
-                per_file.join(", "),
+                diag::printable(&per_file.join(", ")),
                 plural(e),
                 if e == 1 { "is" } else { "are" },
                 if e == 1 { "it" } else { "them" },
@@ -508,6 +536,26 @@ pub fn run_check_with(
             report.participants.clear();
             report.discovery.clear();
         } else {
+            if let Some((folder, e)) = target.write_problem() {
+                report.output.push(
+                    Diagnostic::error(
+                        folder.display().to_string(),
+                        format!(
+                            "the output folder ({named_by}) cannot be written here ({e}); a run \
+                             writes its lock file, staging folder and new output in this folder, \
+                             so it would stop with exit code 6"
+                        ),
+                    )
+                    .hint(format!(
+                        "name an output folder this run can write with {}",
+                        if named_by == "--out" {
+                            "--out"
+                        } else {
+                            "--out (or report.out)"
+                        }
+                    )),
+                );
+            }
             report.templates = template_problems(prog, &report.participants, as_of);
             match ledger_problems(prog, opts.state.as_deref(), opts.out.as_deref()) {
                 Ok(diags) => report.ledger = diags,

@@ -89,11 +89,14 @@ pub fn default_dir(out_dir: &Path) -> PathBuf {
             resolved.as_path()
         }
     };
-    let name = out_dir
+    // Byte for byte: a name that is not UTF-8 (`\xff`) was written `\u{fffd}`, so the ledger
+    // was not `<out>.ledger`, and output folders differing there shared one.
+    let mut name = out_dir
         .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
+        .map(std::ffi::OsStr::to_os_string)
         .unwrap_or_else(|| "reports".into());
-    out_dir.with_file_name(format!("{name}.ledger"))
+    name.push(".ledger");
+    out_dir.with_file_name(name)
 }
 
 /// The ledger folder of a run: `--state DIR` when given (relative to the working folder), else

@@ -445,7 +445,7 @@ pub fn parse_profile(
                 "body_fat_percent",
                 ctx.warning("implausible body fat; the value is ignored")
                     .expected(format!("{} to {} %", BODY_FAT_RANGE.0, BODY_FAT_RANGE.1))
-                    .found(b.to_string()),
+                    .found(crate::diag::number(b)),
             ));
             None
         }
@@ -456,10 +456,10 @@ pub fn parse_profile(
         for (key, v, lo, hi) in crate::program::load::target_problems(t) {
             let path = format!("targets.{key}");
             let mut d = ctx
-                .error(format!("target out of range: {v}"))
+                .error(format!("target out of range: {}", crate::diag::number(v)))
                 .field(path.as_str())
                 .expected(format!("a number from {lo} to {hi}"))
-                .found(v.to_string())
+                .found(crate::diag::number(v))
                 .hint("the override replaces the program's target for this participant; check the value or remove it");
             if let Some((l, c)) = crate::program::load::key_position(text, &path) {
                 d = d.at(l, c);

@@ -236,10 +236,13 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
     }
     for (key, v, lo, hi) in target_problems(&def.targets) {
         let key = format!("targets.{key}");
-        let mut d = Diagnostic::error(PROGRAM_FILE, format!("target out of range: {v}"))
-            .field(key.as_str())
-            .expected(format!("a number from {lo} to {hi}"))
-            .found(v.to_string());
+        let mut d = Diagnostic::error(
+            PROGRAM_FILE,
+            format!("target out of range: {}", crate::diag::number(v)),
+        )
+        .field(key.as_str())
+        .expected(format!("a number from {lo} to {hi}"))
+        .found(crate::diag::number(v));
         if let Some((l, c)) = key_position(text, &key) {
             d = d.at(l, c);
         }
@@ -419,9 +422,12 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
             && (!v.is_finite() || v < lo || v > hi)
         {
             out.push(
-                err(key, format!("guidance setting out of range: {v}"))
-                    .expected(format!("a number from {lo} to {hi}"))
-                    .found(v.to_string()),
+                err(
+                    key,
+                    format!("guidance setting out of range: {}", crate::diag::number(v)),
+                )
+                .expected(format!("a number from {lo} to {hi}"))
+                .found(crate::diag::number(v)),
             );
         }
     }

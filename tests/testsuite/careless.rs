@@ -680,3 +680,194 @@ fn a_path_starting_with_a_tilde_is_refused_not_made_into_a_folder_named_tilde() 
         assert!(!t.dir.join("~").exists());
     }
 }
+
+/// The longest run of digits in `s`.
+fn longest_digit_run(s: &str) -> usize {
+    s.split(|c: char| !c.is_ascii_digit())
+        .map(str::len)
+        .max()
+        .unwrap_or(0)
+}
+
+/// A weight, an intake and a lab value of 1e308 written out (309 digits, as a spreadsheet
+/// exports a number typed with an exponent) and a program target of `1e308`: every message
+/// quoted the number in full — hundreds of zeros in `check`'s lines, the JSON, the participant's
+/// report and the data-quality list. Each is shown by its first and last digits and its length,
+/// and the YAML float as `1e308`.
+#[test]
+fn a_number_of_hundreds_of_digits_is_shown_compactly() {
+    let t = ProgramTest::fixture("report-small");
+    let big = format!("1{}", "0".repeat(308));
+    let p = t.dir.join("participants/SG-003");
+    let append = |file: &str, row: String| {
+        let mut text = fs::read_to_string(p.join(file)).unwrap();
+        text.push_str(&row);
+        fs::write(p.join(file), text).unwrap();
+    };
+    append("weights.csv", format!("2026-09-09,{big},lb,home-scale\n"));
+    append("intake.csv", format!("2026-09-09,{big}\n"));
+    append("labs.csv", format!("2026-09-09,hba1c,{big},%\n"));
+    for format in ["text", "json"] {
+        let c = t.run(&["check", "{dir}", "--as-of", AS_OF, "--format", format]);
+        assert_eq!(c.code, 1, "{c:?}");
+        assert!(longest_digit_run(&c.stdout) <= 24, "{}", c.stdout);
+        // The weight's, the lab value's and the intake's, each found as compacted.
+        assert!(
+            c.stdout.matches("100000…000 (309 digits)").count() >= 3,
+            "{format}: {}",
+            c.stdout
+        );
+    }
+    let o = run(&t, "html");
+    assert_eq!(o.code, 1, "{o:?}");
+    let out = out_dir(&t);
+    for file in ["participants/SG-003.html", "metrics/data-quality.csv"] {
+        let text = fs::read_to_string(out.join(file)).unwrap();
+        assert!(longest_digit_run(&text) <= 24, "{file}");
+        assert!(text.contains("(309 digits)"), "{file}");
+    }
+    // A target in program.yaml read as a YAML float.
+    let yaml = fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace("weight_change_percent: -5", "weight_change_percent: 1e308");
+    fs::write(t.dir.join("program.yaml"), yaml).unwrap();
+    let c = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(c.code, 3, "{c:?}");
+    assert!(
+        c.stdout.contains("target out of range: 1e308") && c.stdout.contains("found: 1e308"),
+        "{}",
+        c.stdout
+    );
+}
+
+/// `check --out DIR` with DIR on a file system mounted read-only (a restored backup, a share
+/// mounted `ro`), the ledger named elsewhere with `--state`: `check` said ok (exit 0), and the
+/// run stopped at its lock file, "Read-only file system", exit 6. `check` now names the folder
+/// and exits 6 as the run does, for a folder there already and for a new one, and for
+/// `report.out` too. Needs the right to mount (root, as on the project's test machine); skipped
+/// with a message without it. (Root ignores permission bits, so a folder without write
+/// permission is not tested here; `access(2)` judges both alike.)
+#[test]
+fn check_says_an_output_folder_on_a_read_only_file_system_cannot_be_written() {
+    let t = ProgramTest::fixture("report-small");
+    let mnt = t.dir.parent().unwrap().join("ro");
+    fs::create_dir(&mnt).unwrap();
+    let mounted = std::process::Command::new("mount")
+        .args(["-t", "tmpfs", "-o", "size=16m", "tmpfs"])
+        .arg(&mnt)
+        .stderr(std::process::Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success());
+    if !mounted {
+        eprintln!("skipped: cannot mount a tmpfs here (not root)");
+        return;
+    }
+    let _guard = Mounted(mnt.clone());
+    fs::create_dir(mnt.join("reports")).unwrap();
+    let remounted = std::process::Command::new("mount")
+        .args(["-o", "remount,ro"])
+        .arg(&mnt)
+        .status()
+        .is_ok_and(|s| s.success());
+    assert!(remounted, "remount read-only");
+    let state = t.dir.parent().unwrap().join("state");
+    let state = state.to_str().unwrap();
+    for out in [mnt.join("reports"), mnt.join("new/reports")] {
+        let out = out.to_str().unwrap();
+        let c = t.run(&[
+            "check", "{dir}", "--as-of", AS_OF, "--out", out, "--state", state,
+        ]);
+        assert_eq!(c.code, 6, "{out}: {c:?}");
+        assert!(
+            c.stdout.contains(&format!(
+                "error: {}: the output folder (--out) cannot be written here (Read-only file system",
+                mnt.display()
+            )),
+            "{}",
+            c.stdout
+        );
+        let r = t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            out,
+            "--state",
+            state,
+        ]);
+        assert_eq!(r.code, c.code, "{out}: {r:?}");
+    }
+    // report.out in program.yaml.
+    let yaml = fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace(
+        "out: reports",
+        &format!("out: {}", mnt.join("reports").display()),
+    );
+    fs::write(t.dir.join("program.yaml"), yaml).unwrap();
+    let c = t.run(&["check", "{dir}", "--as-of", AS_OF, "--state", state]);
+    assert_eq!(c.code, 6, "{c:?}");
+    assert!(
+        c.stdout
+            .contains("the output folder (report.out) cannot be written"),
+        "{}",
+        c.stdout
+    );
+    // A writable folder is still fine.
+    let ok = t.dir.parent().unwrap().join("fine");
+    let c = t.run(&[
+        "check",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--out",
+        ok.to_str().unwrap(),
+        "--state",
+        state,
+    ]);
+    assert_eq!(c.code, 0, "{c:?}");
+}
+
+/// An output folder whose name is not UTF-8 (a Latin-1 `é` from an old script: byte 0xE9): its
+/// lock file, staging folder, previous copy and ledger were named from the name's text, with
+/// U+FFFD for the byte, so `rapport\xe9` and `rapport\xe8` shared one lock, one staging folder,
+/// one previous copy and one ledger, none of them `<out>.ledger`. Named byte for byte now.
+#[test]
+fn an_output_folder_name_that_is_not_utf8_gets_files_of_its_own() {
+    use std::os::unix::ffi::OsStrExt;
+    let t = ProgramTest::fixture("report-small");
+    let parent = t.dir.parent().unwrap().to_path_buf();
+    let name = |b: u8| {
+        let mut v = b"rapport".to_vec();
+        v.push(b);
+        std::ffi::OsStr::from_bytes(&v).to_os_string()
+    };
+    for b in [0xe9, 0xe8] {
+        let out = parent.join(name(b));
+        let o = t.run_os(&[
+            "run".as_ref(),
+            "{dir}".as_ref(),
+            "--as-of".as_ref(),
+            AS_OF.as_ref(),
+            "--formats".as_ref(),
+            "html".as_ref(),
+            "--out".as_ref(),
+            out.as_os_str(),
+        ]);
+        assert_eq!(o.code, 0, "{o:?}");
+        let mut ledger = name(b);
+        ledger.push(".ledger");
+        assert!(parent.join(&ledger).join("ledger.json").is_file(), "{o:?}");
+        let mut lock = std::ffi::OsString::from(".");
+        lock.push(name(b));
+        lock.push(".lock");
+        assert!(parent.join(&lock).is_file());
+    }
+    let real: Vec<_> = fs::read_dir(&parent)
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .filter(|n| n.as_bytes().contains(&0xef))
+        .collect();
+    assert!(real.is_empty(), "a name with U+FFFD written: {real:?}");
+}

@@ -96,6 +96,33 @@ impl ProgramTest {
         }
     }
 
+    /// [`ProgramTest::run`] with arguments that need not be UTF-8 (paths of any bytes).
+    pub fn run_os(&self, args: &[&std::ffi::OsStr]) -> Outcome {
+        let args: Vec<std::ffi::OsString> = args
+            .iter()
+            .map(|a| {
+                if *a == "{dir}" {
+                    self.dir.clone().into_os_string()
+                } else {
+                    a.to_os_string()
+                }
+            })
+            .collect();
+        let out = Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+            .args(&args)
+            .current_dir(&self.dir)
+            .env_clear()
+            .env("PATH", std::env::var("PATH").unwrap_or_default())
+            .env("HOME", self.dir.parent().unwrap())
+            .output()
+            .expect("run cohortpress");
+        Outcome {
+            code: out.status.code().unwrap_or(-1),
+            stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
+            stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+        }
+    }
+
     /// Replaces the temporary folder's path by `[DIR]` so output can be snapshotted.
     pub fn redact(&self, s: &str) -> String {
         s.replace(&*self.dir.to_string_lossy(), "[DIR]")

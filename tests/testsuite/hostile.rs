@@ -1154,3 +1154,55 @@ fn lock_files_are_never_opened_through_a_link() {
     // With the link gone the run goes ahead.
     assert_eq!(run().code, cohortpress::exit_code::SUCCESS);
 }
+
+/// Escape sequences in the program's title, in a YAML key and in a CSV column's name reached
+/// the terminal raw through `check`'s own lines (the details were escaped, these were not):
+/// the `program … (TITLE): ok` line, the summary by kind (a message quoting the key) and "how
+/// files were read" (a column it does not read), also with `--verbose`: a title of
+/// `\e]0;…\a\e[2J` set the terminal's title and cleared the screen.
+#[test]
+fn check_s_own_lines_never_print_control_characters_from_inputs() {
+    let t = ProgramTest::demo(3);
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    let yaml = yaml.replace(
+        "title: Steady Ground 2026",
+        "title: \"Steady\\e]0;owned\\a\\e[2J Ground\"",
+    );
+    std::fs::write(t.dir.join("program.yaml"), yaml).unwrap();
+    let p = |rel: &str| t.dir.join("participants").join(rel);
+    let mut profile = std::fs::read_to_string(p("SG-001/profile.yaml")).unwrap();
+    profile.push_str("\"x\\e[2Jy\": 1\n");
+    std::fs::write(p("SG-001/profile.yaml"), profile).unwrap();
+    std::fs::write(
+        p("SG-002/weights.csv"),
+        "date,weight,unit,Comm\u{1b}[5ment\n2026-04-01,70,kg,x\n",
+    )
+    .unwrap();
+    for extra in [&[][..], &["--verbose"][..]] {
+        let mut args = vec!["check", "{dir}", "--as-of", AS_OF];
+        args.extend_from_slice(extra);
+        let r = run_bin(&t, &args, &[], None);
+        assert_eq!(r.code, 4, "{}", r.stderr);
+        assert!(
+            !r.stdout.chars().any(|c| c.is_control() && c != '\n'),
+            "{extra:?}: {:?}",
+            r.stdout
+        );
+        assert!(
+            r.stdout
+                .contains("(Steady\\u{1b}]0;owned\\u{7}\\u{1b}[2J Ground): ok"),
+            "{}",
+            r.stdout
+        );
+        assert!(
+            r.stdout.contains("unknown key `x\\u{1b}[2Jy`"),
+            "{}",
+            r.stdout
+        );
+        assert!(
+            r.stdout.contains("column `Comm\\u{1b}[5ment` is not read"),
+            "{}",
+            r.stdout
+        );
+    }
+}
