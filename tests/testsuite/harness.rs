@@ -77,23 +77,11 @@ impl ProgramTest {
     /// Runs `cohortpress ARGS…` with the program folder as working directory. `{dir}` in an
     /// argument is replaced by the program folder.
     pub fn run(&self, args: &[&str]) -> Outcome {
-        let args: Vec<String> = args
-            .iter()
-            .map(|a| a.replace("{dir}", &self.dir.to_string_lossy()))
-            .collect();
-        let out = Command::new(env!("CARGO_BIN_EXE_cohortpress"))
-            .args(&args)
-            .current_dir(&self.dir)
-            .env_clear()
-            .env("PATH", std::env::var("PATH").unwrap_or_default())
-            .env("HOME", self.dir.parent().unwrap())
-            .output()
-            .expect("run cohortpress");
-        Outcome {
-            code: out.status.code().unwrap_or(-1),
-            stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
-            stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
-        }
+        self.exec(
+            args.iter()
+                .map(|a| a.replace("{dir}", &self.dir.to_string_lossy()).into())
+                .collect(),
+        )
     }
 
     /// [`ProgramTest::run`] with arguments that need not be UTF-8 (paths of any bytes).
@@ -108,6 +96,11 @@ impl ProgramTest {
                 }
             })
             .collect();
+        self.exec(args)
+    }
+
+    /// Runs the binary with `args` in the program folder, with a clean environment.
+    fn exec(&self, args: Vec<std::ffi::OsString>) -> Outcome {
         let out = Command::new(env!("CARGO_BIN_EXE_cohortpress"))
             .args(&args)
             .current_dir(&self.dir)
