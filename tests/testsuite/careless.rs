@@ -588,15 +588,6 @@ fn a_participant_named_like_a_windows_device_is_left_out() {
     assert!(!out.join("participants/Com1.html").exists());
 }
 
-/// Unmounts on drop, so a failed assertion leaves no mount behind.
-struct Mounted(PathBuf);
-
-impl Drop for Mounted {
-    fn drop(&mut self) {
-        let _ = std::process::Command::new("umount").arg(&self.0).status();
-    }
-}
-
 /// `--out` naming a mount point: a USB stick or share mounted at `/media/reports`, or a
 /// container's volume (`-v /srv/out:/out`, `--out /out`). Every run computed every participant,
 /// recorded its release in the ledger, and then failed at the swap with "Device or resource
@@ -608,17 +599,9 @@ fn an_output_folder_that_is_a_mount_point_is_refused_before_anything_is_done() {
     let t = ProgramTest::fixture("report-small");
     let out = out_dir(&t);
     fs::create_dir(&out).unwrap();
-    let mounted = std::process::Command::new("mount")
-        .args(["-t", "tmpfs", "-o", "size=16m", "tmpfs"])
-        .arg(&out)
-        .stderr(std::process::Stdio::null())
-        .status()
-        .is_ok_and(|s| s.success());
-    if !mounted {
-        eprintln!("skipped: cannot mount a tmpfs here (not root)");
+    let Some(_tmpfs) = crate::harness::Tmpfs::mount(&out) else {
         return;
-    }
-    let _guard = Mounted(out.clone());
+    };
     let o = run(&t, "html");
     assert_eq!(o.code, 2, "{o:?}");
     assert!(
@@ -751,24 +734,11 @@ fn check_says_an_output_folder_on_a_read_only_file_system_cannot_be_written() {
     let t = ProgramTest::fixture("report-small");
     let mnt = t.dir.parent().unwrap().join("ro");
     fs::create_dir(&mnt).unwrap();
-    let mounted = std::process::Command::new("mount")
-        .args(["-t", "tmpfs", "-o", "size=16m", "tmpfs"])
-        .arg(&mnt)
-        .stderr(std::process::Stdio::null())
-        .status()
-        .is_ok_and(|s| s.success());
-    if !mounted {
-        eprintln!("skipped: cannot mount a tmpfs here (not root)");
+    let Some(tmpfs) = crate::harness::Tmpfs::mount(&mnt) else {
         return;
-    }
-    let _guard = Mounted(mnt.clone());
+    };
     fs::create_dir(mnt.join("reports")).unwrap();
-    let remounted = std::process::Command::new("mount")
-        .args(["-o", "remount,ro"])
-        .arg(&mnt)
-        .status()
-        .is_ok_and(|s| s.success());
-    assert!(remounted, "remount read-only");
+    tmpfs.make_read_only();
     let state = t.dir.parent().unwrap().join("state");
     let state = state.to_str().unwrap();
     for out in [mnt.join("reports"), mnt.join("new/reports")] {

@@ -169,3 +169,40 @@ pub fn tree_hashes(dir: &Path) -> Vec<(String, String)> {
     }
     v
 }
+
+/// A tmpfs mounted at a folder for one test, unmounted when dropped.
+pub struct Tmpfs(PathBuf);
+
+impl Tmpfs {
+    /// Mounts a 16 MB tmpfs at `dir` (a folder that exists). Needs the right to mount (root, as
+    /// on the project's test machine): `None` without it, after saying the test is skipped.
+    pub fn mount(dir: &Path) -> Option<Tmpfs> {
+        let mounted = Command::new("mount")
+            .args(["-t", "tmpfs", "-o", "size=16m", "tmpfs"])
+            .arg(dir)
+            .stderr(std::process::Stdio::null())
+            .status()
+            .is_ok_and(|s| s.success());
+        if !mounted {
+            eprintln!("skipped: cannot mount a tmpfs here (not root)");
+            return None;
+        }
+        Some(Tmpfs(dir.to_path_buf()))
+    }
+
+    /// Remounts it read-only.
+    pub fn make_read_only(&self) {
+        let remounted = Command::new("mount")
+            .args(["-o", "remount,ro"])
+            .arg(&self.0)
+            .status()
+            .is_ok_and(|s| s.success());
+        assert!(remounted, "remount read-only");
+    }
+}
+
+impl Drop for Tmpfs {
+    fn drop(&mut self) {
+        let _ = Command::new("umount").arg(&self.0).status();
+    }
+}

@@ -678,15 +678,6 @@ fn a_ledger_folder_that_cannot_be_used_stops_the_run_before_anything_is_computed
     assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
 }
 
-/// Unmounts a folder when dropped.
-struct Mounted(std::path::PathBuf);
-
-impl Drop for Mounted {
-    fn drop(&mut self) {
-        let _ = std::process::Command::new("umount").arg(&self.0).status();
-    }
-}
-
 /// A ledger folder on a file system mounted read-only (a restored backup, a share mounted
 /// `ro`, a disk the kernel turned read-only after errors): `check` said the program was fine,
 /// and every run computed every participant and only then failed at the ledger's lock file
@@ -698,17 +689,9 @@ fn a_ledger_folder_that_cannot_be_written_is_refused_before_anything_is_computed
     let t = ProgramTest::fixture("report-small");
     let mnt = t.dir.parent().unwrap().join("mnt");
     std::fs::create_dir(&mnt).unwrap();
-    let mounted = std::process::Command::new("mount")
-        .args(["-t", "tmpfs", "-o", "size=16m", "tmpfs"])
-        .arg(&mnt)
-        .stderr(std::process::Stdio::null())
-        .status()
-        .is_ok_and(|s| s.success());
-    if !mounted {
-        eprintln!("skipped: cannot mount a tmpfs here (not root)");
+    let Some(tmpfs) = crate::harness::Tmpfs::mount(&mnt) else {
         return;
-    }
-    let _guard = Mounted(mnt.clone());
+    };
     let state = mnt.join("ledger");
     let state_s = state.to_string_lossy().into_owned();
     let fresh = mnt.join("fresh");
@@ -727,12 +710,7 @@ fn a_ledger_folder_that_cannot_be_written_is_refused_before_anything_is_computed
     };
     let o = run(&state_s);
     assert_eq!(o.code, 0, "{o:?}");
-    let remounted = std::process::Command::new("mount")
-        .args(["-o", "remount,ro"])
-        .arg(&mnt)
-        .status()
-        .is_ok_and(|s| s.success());
-    assert!(remounted, "remount read-only");
+    tmpfs.make_read_only();
     let before = tree_hashes(&t.dir.join("reports"));
     for (state, shown) in [(&state_s, state.clone()), (&fresh_s, mnt.clone())] {
         let o = run(state);
