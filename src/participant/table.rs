@@ -980,7 +980,11 @@ fn read_records(
     let mut dates_in_utc = false;
     let mut usable = true;
     let mut extra = Vec::new();
+    // The field of each `extra` warning, in step with it.
+    let mut extra_at: Vec<usize> = Vec::new();
     let mut ignored: Vec<String> = Vec::new();
+    // Fields the header does not name as one of ours.
+    let mut unnamed: Vec<usize> = Vec::new();
     for (i, name) in written.iter().enumerate() {
         let (key, unit) = header_key(name);
         let ours = |k: &str| spec.all_columns().find(|c| *c == k);
@@ -1027,7 +1031,9 @@ fn read_records(
                         ))
                         .at(header_line, Some(i as u64 + 1))
                         .field(c)
-                        .hint("keep one column of each name (check `input.columns` in program.yaml)"),
+                        .hint(
+                            "keep one column of each name (check `input.columns` in program.yaml)",
+                        ),
                     );
                     usable = false;
                 }
@@ -1063,8 +1069,14 @@ fn read_records(
             // a standard scale export end "with warnings". A header one or two letters from one
             // of ours, or holding one of ours as a word (`sorce`, `Weight 2`), may be ours
             // misspelt and keeps its warning.
-            None if !near_ours(&key, spec) => ignored.push(format!("`{name}`")),
-            None => extra.push(
+            None if !near_ours(&key, spec) => {
+                unnamed.push(i);
+                ignored.push(format!("`{name}`"));
+            }
+            None => {
+                unnamed.push(i);
+                extra_at.push(i);
+                extra.push(
                 ctx.warning(format!("extra column `{name}` is ignored"))
                     .at(header_line, Some(i as u64 + 1))
                     .field(name.clone())
@@ -1073,7 +1085,8 @@ fn read_records(
                         "remove the column, check its spelling, or map it to one of ours in program.yaml: `input: {{ columns: {{ {}: {{ \"{name}\": COLUMN }} }} }}`",
                         spec.kind()
                     )),
-            ),
+                );
+            }
         }
     }
     // The mapping's unit stands for a unit the file does not name: a unit in the column's
@@ -1097,11 +1110,27 @@ fn read_records(
         && spec.required.contains(&"date"))
     .then(|| columns.get("time").copied())
     .flatten();
+    // No column named as the date by any name we know (`Recorded`, `Fecha`, `Datum`, or a
+    // `Time` column holding whole date-times): the one column whose cells are all dates is it.
+    // Whether there is one is known once the rows are read; until then these are the fields
+    // that could be (a column named as ours other than `time` is never taken).
+    let date_by_content: Vec<usize> =
+        if !columns.contains_key("date") && spec.required.contains(&"date") {
+            unnamed
+                .iter()
+                .copied()
+                .chain(columns.get("time").copied())
+                .collect()
+        } else {
+            Vec::new()
+        };
     let missing: Vec<&str> = spec
         .required
         .iter()
         .filter(|c| !columns.contains_key(**c))
-        .filter(|c| !(**c == "date" && time_for_date_rows.is_some()))
+        .filter(|c| {
+            !(**c == "date" && (time_for_date_rows.is_some() || !date_by_content.is_empty()))
+        })
         // A unit in the value column's header stands for the unit column.
         .filter(|c| {
             !spec
@@ -1401,9 +1430,49 @@ fn read_records(
     }
     let has_unit =
         |s: &str| s.chars().any(|c| c.is_ascii_digit()) && s.chars().any(char::is_alphabetic);
-    // Date rows were to stand for a missing date column: without any, it is missing after all
-    // (and so is a unit column that units in the cells do not stand for).
-    if time_for_date_rows.is_some() && date_rows == 0 {
+    // Date rows, or a column of dates under another name, were to stand for a missing date
+    // column: without either, it is missing after all (and so is a unit column that units in
+    // the cells do not stand for).
+    let date_unnamed = if time_for_date_rows.is_some() {
+        date_rows == 0
+    } else {
+        !date_by_content.is_empty()
+    };
+    let dated: Vec<usize> = if date_unnamed {
+        date_by_content
+            .iter()
+            .copied()
+            .filter(|&i| {
+                let mut cells = table
+                    .rows
+                    .iter()
+                    .filter_map(|r| table.field(r, i))
+                    .peekable();
+                cells.peek().is_some()
+                    && cells.all(|c| parse_when(c, opts).is_some() || numeric_parts(c).is_some())
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
+    if let [i] = dated[..] {
+        table.columns.insert("date", i);
+        if table.columns.get("time") == Some(&i) {
+            table.columns.remove("time");
+            table.headers.remove("time");
+        }
+        table.headers.insert("date", written[i].clone());
+        table.date_rows_in = None;
+        ignored.retain(|n| *n != format!("`{}`", written[i]));
+        if let Some(k) = extra_at.iter().position(|&e| e == i) {
+            extra_at.remove(k);
+            extra.remove(k);
+        }
+        ctx.note(format!(
+            "column `{}` read as `date`: no column is named as the date, and it is the only one whose cells are all dates",
+            written[i]
+        ));
+    } else if date_unnamed {
         let units_there = units_in_cells.is_some_and(|v| {
             table
                 .rows
@@ -1412,7 +1481,17 @@ fn read_records(
         });
         let mut missing: Vec<&str> = missing.iter().copied().filter(|_| !units_there).collect();
         missing.insert(0, "date");
-        diags.push(missing_error(&missing));
+        let mut e = missing_error(&missing);
+        if dated.len() > 1 {
+            let names: Vec<String> = dated.iter().map(|&i| format!("`{}`", written[i])).collect();
+            e = e.hint(format!(
+                "columns {} each hold dates, so which one dates a row cannot be told; name it in program.yaml: `input: {{ columns: {{ {}: {{ \"{}\": date }} }} }}`",
+                names.join(" and "),
+                spec.kind(),
+                written[dated[0]]
+            ));
+        }
+        diags.push(e);
         return None;
     }
     if date_rows > 0 {
@@ -3320,6 +3399,65 @@ mod tests {
         // Quoted delimiters do not count.
         assert_eq!(sniff_delimiter("\"a;b\",c\n\"x;y\",z\n"), Some(b','));
         assert_eq!(sniff_delimiter("weight\n72\n"), None);
+    }
+
+    /// A date column under a name of no list (`Recorded`, `Measurement time`, or `Time` holding
+    /// whole date-times, as scale exports write them) was a "missing required column `date`"
+    /// and the file was not used. The one column whose cells are all dates is the date; two
+    /// such columns are refused with both named, and a `Time` column with times alone stays
+    /// refused.
+    #[test]
+    fn the_one_column_of_dates_under_another_name_is_the_date() {
+        let spec = crate::participant::records::WEIGHTS;
+        let opts = CsvOptions::default();
+        let ctx = FileCtx::new("P1", "w.csv");
+        for header in ["Recorded", "Measurement time", "Time"] {
+            let mut d = Vec::new();
+            let text = format!(
+                "{header},Weight (kg),Comment\n2026-04-01 07:12,72.5,after run\n2026-04-03 07:40,72.1,\n"
+            );
+            let t = read_table(&text, &spec, &opts, &ctx, &mut d).unwrap();
+            assert!(d.is_empty(), "{header}: {d:?}");
+            assert_eq!(t.rows.len(), 2);
+            assert_eq!(t.get(&t.rows[1], "date"), Some("2026-04-03 07:40"));
+            assert_eq!(t.get(&t.rows[1], "time"), None);
+            assert_eq!(t.column("date"), Some(1));
+            let notes = ctx.take_notes();
+            assert!(
+                notes.iter().any(|n| n.message
+                    == format!("column `{header}` read as `date`: no column is named as the date, and it is the only one whose cells are all dates")),
+                "{notes:?}"
+            );
+        }
+        let mut d = Vec::new();
+        let t = read_table(
+            "Start,End,Weight (kg)\n2026-04-01 07:12,2026-04-01 07:13,72.5\n",
+            &spec,
+            &opts,
+            &ctx,
+            &mut d,
+        );
+        assert!(t.is_none());
+        assert_eq!(
+            d[0].message,
+            "missing required column `date`; the file is not used"
+        );
+        assert!(
+            d[0].hint
+                .as_deref()
+                .unwrap()
+                .starts_with("columns `Start` and `End` each hold dates"),
+            "{:?}",
+            d[0].hint
+        );
+        let mut d = Vec::new();
+        let t = read_table("Time,Weight (kg)\n07:12,72.5\n", &spec, &opts, &ctx, &mut d);
+        assert!(t.is_none());
+        assert_eq!(
+            d[0].message,
+            "missing required column `date`; the file is not used"
+        );
+        ctx.take_notes();
     }
 
     #[test]

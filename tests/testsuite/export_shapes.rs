@@ -36,6 +36,8 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("weights-two-digit-years.csv", 3, false),
     ("weights-two-digit-years-ambiguous.csv", 0, true),
     ("weights-health-app-metadata-line.csv", 3, false),
+    // The date-times under `Time`, with no column named as the date: every row was lost.
+    ("weights-scale-time-column-datetimes.csv", 3, false),
     ("weights-spreadsheet-sep-line.csv", 3, false),
     // `"72,500"` could be 72,500 or 72.5: its row only is dropped, with a warning.
     ("weights-spreadsheet-quoted-decimal-commas.csv", 3, false),
@@ -258,6 +260,22 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         ]
     );
     same(kg("weights-health-app-offsets.csv"), &[72.5, 73.1, 72.4]);
+    let timed = &got["weights-scale-time-column-datetimes.csv"].weights;
+    assert_eq!(
+        timed
+            .iter()
+            .map(|w| (w.0, w.1.as_deref()))
+            .collect::<Vec<_>>(),
+        [
+            (d(5, 3), Some("06:58")),
+            (d(5, 4), Some("07:02")),
+            (d(5, 6), Some("06:55"))
+        ]
+    );
+    same(
+        kg("weights-scale-time-column-datetimes.csv"),
+        &[81.4, 81.0, 80.8],
+    );
     // Unix milliseconds: 1777622400000 is 2026-05-01 08:00 UTC, taken on its UTC day (the
     // program sets no time zone).
     let unix = &got["weights-unix-milliseconds.csv"].weights;
