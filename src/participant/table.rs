@@ -1770,11 +1770,14 @@ pub struct When {
 }
 
 /// ISO-8601 date-times without an offset, tried after the program's format.
-const ISO_NAIVE: [&str; 4] = [
+const ISO_NAIVE: [&str; 6] = [
     "%Y-%m-%dT%H:%M:%S%.f",
     "%Y-%m-%d %H:%M:%S%.f",
     "%Y-%m-%dT%H:%M",
     "%Y-%m-%d %H:%M",
+    // An ISO date with a 12-hour clock (`2026-05-01 7:12 AM`), as spreadsheets show it.
+    "%Y-%m-%d %I:%M %p",
+    "%Y-%m-%d %I:%M:%S %p",
 ];
 /// ISO-8601 date-times with an offset (`+01:00`, `+0100`); `Z` is read as `+00:00`.
 const ISO_OFFSET: [&str; 5] = [
@@ -1886,6 +1889,11 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
             }
         }
     }
+    // The date-time of e-mail headers (`Fri, 01 May 2026 07:12:00 +0200`, RFC 5322 §3.3), as
+    // some servers' exports write it.
+    if let Ok(t) = DateTime::parse_from_rfc2822(s) {
+        return Some(stamped(t));
+    }
     if let Some(d) = basic_date(s, opts.program_span) {
         return Some(When {
             date: d,
@@ -1932,7 +1940,7 @@ fn written_out(
     day_first_dots: bool,
     span: Option<(NaiveDate, NaiveDate)>,
 ) -> Option<(NaiveDate, Option<NaiveTime>)> {
-    const NAMED: [&str; 11] = [
+    const NAMED: [&str; 13] = [
         "%B %d, %Y",
         "%b %d, %Y",
         "%B %d %Y",
@@ -1945,6 +1953,9 @@ fn written_out(
         "%A, %B %d, %Y",
         "%a, %d %b %Y",
         "%A, %d %B %Y",
+        // Without a comma (`Fri May 01 2026`, as scripts' date-to-text functions write it).
+        "%a %b %d %Y",
+        "%A %B %d %Y",
     ];
     const TIMES: [&str; 4] = ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"];
     // The month's name is a word of three letters or more (`AM`, `PM` are not).
@@ -1963,6 +1974,10 @@ fn written_out(
         &NAMED
     } else if b.len() >= 10 && b[4] == b'/' {
         &["%Y/%m/%d"]
+    } else if b.len() >= 10 && b[4] == b'.' && b[7] == b'.' {
+        // Year first with dots (`2026.05.01`, common practice in several countries): a
+        // four-digit year first leaves only one reading.
+        &["%Y.%m.%d"]
     } else if day_first_dots && b.len() >= 10 && b[2] == b'.' && b[5] == b'.' {
         &["%d.%m.%Y"]
     } else {
@@ -3730,6 +3745,28 @@ mod tests {
         assert!(parse_when("20270301", &opts).is_none());
         assert!(parse_when("20350301", &program).is_none());
         assert!(parse_when("20270230", &program).is_none());
+        // Forms that cost every row of their files: the e-mail header date-time (RFC 5322
+        // §3.3; UTC converted to the program's zone like `Z`), an ISO date with a 12-hour
+        // clock, a weekday without a comma (which must still be the date's), year-first dots.
+        assert_eq!(
+            day("Fri, 02 Jul 2027 07:12:00 +0200", &ny),
+            some("2027-07-02", "07:12:00")
+        );
+        assert_eq!(
+            day("Fri, 02 Jul 2027 02:30:00 GMT", &ny),
+            some("2027-07-01", "22:30:00")
+        );
+        assert_eq!(
+            day("2027-03-01 7:12 PM", &opts),
+            some("2027-03-01", "19:12:00")
+        );
+        assert_eq!(
+            day("Mon Mar 01 2027", &opts),
+            Some(("2027-03-01".into(), None))
+        );
+        assert!(parse_when("Tue Mar 01 2027", &opts).is_none());
+        assert_eq!(day("2027.03.01", &opts), Some(("2027-03-01".into(), None)));
+        assert!(parse_when("2027.13.01", &opts).is_none());
     }
 
     #[test]
