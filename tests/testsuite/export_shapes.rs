@@ -46,9 +46,13 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("intake-title-line.csv", 2, false),
     ("intake-kj-semicolon-bom.csv", 2, false),
     ("intake-diary-units-in-cells.csv", 2, false),
+    // `Calories consumed` beside `Calories burned`: the file was refused, no `kcal` column.
+    ("intake-diary-consumed-burned.csv", 2, false),
     ("activity-hms-durations.csv", 3, false),
     ("activity-minutes-in-cell.csv", 4, false),
     ("activity-start-times.csv", 3, false),
+    // `Start Time` and `Workout Type`: refused, no `date` or `activity` column.
+    ("activity-workout-start-time.csv", 3, false),
     ("activity-mmss-durations.csv", 3, false),
 ];
 
@@ -394,6 +398,10 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         intake("intake-diary-units-in-cells.csv"),
         [(d(5, 1), 1440.0, Some(65.0)), (d(5, 2), 700.0, Some(42.0))]
     );
+    assert_eq!(
+        intake("intake-diary-consumed-burned.csv"),
+        [(d(5, 1), 1850.0, None), (d(5, 2), 1720.0, None)]
+    );
     // kJ / 4.184 = kcal (thermochemical calorie); `7 950` and `8.368` group thousands.
     let kj = intake("intake-kj-semicolon-bom.csv");
     assert!(
@@ -410,6 +418,18 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         [45.0, 30.0, 75.0, 60.0]
     );
     assert_eq!(minutes("activity-start-times.csv"), [30.0, 45.0, 32.0]);
+    assert_eq!(
+        got["activity-workout-start-time.csv"]
+            .activity
+            .iter()
+            .map(|a| (a.0, a.1.as_str(), a.2))
+            .collect::<Vec<_>>(),
+        [
+            (d(5, 1), "Walking", 30.0),
+            (d(5, 2), "Yoga", 45.0),
+            (d(5, 3), "Walking", 32.0)
+        ]
+    );
     // `45:00` cannot be 45 hours: the file writes minutes:seconds, `1:05` too.
     let mmss = minutes("activity-mmss-durations.csv");
     assert!(
