@@ -2,21 +2,8 @@
 //! a Bundle, or single resources in JSON) written as participant folders: `profile.yaml`,
 //! `weights.csv` and `labs.csv`.
 //!
-//! Codes read (LOINC, system `http://loinc.org`), each confirmed against published FHIR
-//! material:
-//! - 29463-7 Body weight — FHIR R4 `observation-example` (id `example`, 185 `[lb_av]`).
-//! - 8302-2 Body height — Vital Signs IG STU1 (hl7.org/fhir/us/vitals/STU1), `height-example`.
-//! - 8280-0 Waist circumference at umbilicus by tape measure — vital-signs Observation examples
-//!   of the HL7 Europe discharge-report IG (build.fhir.org/ig/hl7-eu/discharge-report).
-//! - 85354-9 Blood pressure panel with components 8480-6 systolic and 8462-4 diastolic — FHIR R4
-//!   value set `observation-vitalsignresult` (hl7.org/fhir/R4/valueset-observation-vitalsignresult.html).
-//! - 4548-4 Hemoglobin A1c/Hemoglobin.total in Blood (UCUM `%`) — HL7 BSeR IG and HL7 Vulcan
-//!   schedule IG examples.
-//! - 1558-6 Fasting glucose [Mass/volume] in Serum or Plasma, and 14771-0 Fasting glucose
-//!   [Moles/volume] in Serum or Plasma — the CH EPREG IG example (14771-0) and LOINC code
-//!   listings (1558-6).
-//! - 59261-8 Hemoglobin A1c/Hemoglobin.total in Blood by IFCC protocol (mmol/mol) — from a
-//!   LOINC code listing (third-party), marked here as not confirmed in HL7 material.
+//! Codes read (LOINC, system `http://loinc.org`): [`crate::participant::loinc`], with the
+//! published FHIR material each was confirmed against.
 //!
 //! Weigh-in source (the `source` column of `weights.csv`: home scale, clinic, …) is read from
 //! `Observation.method`, the FHIR R4 element for "the mechanism used to perform the
@@ -43,28 +30,10 @@ use std::collections::{BTreeMap, BTreeSet};
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
-/// LOINC system URI.
-pub const LOINC: &str = "http://loinc.org";
-/// Body weight.
-pub const BODY_WEIGHT: &str = "29463-7";
-/// Body height.
-pub const BODY_HEIGHT: &str = "8302-2";
-/// Waist circumference.
-pub const WAIST: &str = "8280-0";
-/// Blood pressure panel.
-pub const BP_PANEL: &str = "85354-9";
-/// Systolic blood pressure (component of the panel).
-pub const SYSTOLIC: &str = "8480-6";
-/// Diastolic blood pressure (component of the panel).
-pub const DIASTOLIC: &str = "8462-4";
-/// HbA1c, % (NGSP/DCCT).
-pub const HBA1C: &str = "4548-4";
-/// HbA1c, mmol/mol (IFCC); not confirmed in HL7 material (see the module documentation).
-pub const HBA1C_IFCC: &str = "59261-8";
-/// Fasting glucose, mass per volume.
-pub const FASTING_GLUCOSE_MASS: &str = "1558-6";
-/// Fasting glucose, moles per volume.
-pub const FASTING_GLUCOSE_MOLES: &str = "14771-0";
+pub use crate::participant::loinc::{
+    BODY_HEIGHT, BODY_WEIGHT, BP_PANEL, DIASTOLIC, FASTING_GLUCOSE_MASS, FASTING_GLUCOSE_MOLES,
+    HBA1C, HBA1C_IFCC, LOINC, SYSTOLIC, WAIST,
+};
 
 /// What was read for one patient.
 #[derive(Debug, Default, Clone, PartialEq)]

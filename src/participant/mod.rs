@@ -5,6 +5,7 @@
 //! participant never stops the others. The parsers ([`profile`], [`records`]) work on text.
 
 pub mod encoding;
+pub mod loinc;
 pub mod profile;
 pub mod quantity;
 pub mod records;

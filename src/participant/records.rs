@@ -2068,8 +2068,24 @@ enum LabName {
     BloodPressure,
 }
 
-/// The usual spellings of each test (lowercase, other characters as `_`).
+/// The usual spellings of each test (lowercase, other characters as `_`), or its LOINC code
+/// (`4548-4`, as laboratory systems export it; [`super::loinc`]).
 fn lab_name(name: &str) -> Option<LabName> {
+    use super::loinc;
+    let by_code = match name.trim() {
+        loinc::HBA1C | loinc::HBA1C_IFCC => Some(LabName::One(LabTest::Hba1c)),
+        loinc::FASTING_GLUCOSE_MASS | loinc::FASTING_GLUCOSE_MOLES => {
+            Some(LabName::One(LabTest::FastingGlucose))
+        }
+        loinc::WAIST => Some(LabName::One(LabTest::Waist)),
+        loinc::SYSTOLIC => Some(LabName::One(LabTest::SystolicBp)),
+        loinc::DIASTOLIC => Some(LabName::One(LabTest::DiastolicBp)),
+        loinc::BP_PANEL => Some(LabName::BloodPressure),
+        _ => None,
+    };
+    if by_code.is_some() {
+        return by_code;
+    }
     let key = super::table::header_key(name).0;
     Some(match key.as_str() {
         "fasting_glucose"
@@ -2148,7 +2164,7 @@ pub fn parse_labs(
         let Some(kind) = lab_name(&name) else {
             d.push(
                 c.warn("test", "unknown test; the row is dropped")
-                    .expected("one of fasting_glucose, hba1c, waist, systolic_bp, diastolic_bp, blood_pressure (usual spellings such as HbA1c, A1c, FPG, SBP/DBP are read too)")
+                    .expected("one of fasting_glucose, hba1c, waist, systolic_bp, diastolic_bp, blood_pressure (usual spellings such as HbA1c, A1c, FPG, SBP/DBP, and LOINC codes such as 4548-4, are read too)")
                     .found(format!("`{name}`")),
             );
             return None;

@@ -1216,6 +1216,11 @@ fn read_records(
         .hint(hint)
     };
     if !missing.is_empty() && units_in_cells.is_none() {
+        // The date, when it was to be looked for by its cells, is missing too.
+        let mut missing = missing.clone();
+        if time_for_date_rows.is_none() && !date_by_content.is_empty() {
+            missing.insert(0, "date");
+        }
         diags.push(missing_error(&missing));
         usable = false;
     }

@@ -1279,6 +1279,36 @@ fn sessions_attendance() {
     assert_eq!(diags[0].column, Some(3));
 }
 
+/// A laboratory system's export names each test by its LOINC code: every such row was dropped
+/// as an "unknown test", so a diabetes-range HbA1c never reached the clinician's flag.
+#[test]
+fn lab_tests_named_by_loinc_code_are_read() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,4548-4,6.8,%\n2026-04-01,1558-6,131,mg/dL\n2026-04-01,85354-9,128/82,mmHg\n2026-04-01,59261-8,53,mmol/mol\n2026-04-01,8280-0,92,cm\n2026-04-01,2093-3,5.1,mmol/L\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let tests: Vec<(LabTest, f64)> = v.iter().map(|l| (l.test, l.value)).collect();
+    assert_eq!(tests.len(), 6, "{tests:?}");
+    assert!(tests.contains(&(LabTest::Hba1c, 6.8)));
+    assert!(tests.contains(&(LabTest::SystolicBp, 128.0)));
+    assert!(tests.contains(&(LabTest::DiastolicBp, 82.0)));
+    assert!(tests.contains(&(LabTest::Waist, 92.0)));
+    // 131 mg/dL ÷ 18.016 (ADA Standards of Care, Section 2: 126 mg/dL = 7.0 mmol/L).
+    assert!(
+        tests
+            .iter()
+            .any(|(t, x)| *t == LabTest::FastingGlucose && (x - 131.0 / 18.016).abs() < 0.01)
+    );
+    // A code of another test (total cholesterol) stays unknown, with its warning.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(diags[0].message.contains("unknown test"));
+}
+
 #[test]
 fn labs_are_converted_to_canonical_units() {
     let mut diags = Vec::new();
