@@ -1451,6 +1451,8 @@ fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
     let stats = &group["program"]["stats"];
     let (mut bocf, mut locf, mut completers) = (Vec::new(), Vec::new(), Vec::new());
     let (mut plateau, mut verdict) = (0usize, 0usize);
+    // Started and not withdrawn by the period's end (`withdrew` is empty unless they had).
+    let mut retained = 0usize;
     for row in &rows {
         // A verdict on the period's end ("on a plateau at the end of the period") needs a
         // weigh-in in its last four weeks.
@@ -1477,6 +1479,9 @@ fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
         let Some(b) = num(row, "outcomes.baseline_weight_kg") else {
             continue;
         };
+        if row["withdrew"].is_empty() {
+            retained += 1;
+        }
         let last = num(row, "trend.current_weight_kg");
         let recent = num(row, "trend.days_since_last_weigh_in").is_some_and(|d| d < 28.0);
         let pct = |w: f64| 100.0 * (w - b) / b;
@@ -1499,7 +1504,13 @@ fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
         started - completers.len(),
         "without an outcome",
     );
+    group_count_holds(&e["retained"], retained, "retained");
+    group_count_holds(&e["discontinued"], started - retained, "discontinued");
+    assert!(retained < started, "the sample has withdrawals");
     if let Some(r) = group_value(&e["retention_percent"]) {
+        assert!((r - 100.0 * retained as f64 / started as f64).abs() < 1e-9);
+    }
+    if let Some(r) = group_value(&e["with_outcome_percent"]) {
         assert!((r - 100.0 * completers.len() as f64 / started as f64).abs() < 1e-9);
     }
 
