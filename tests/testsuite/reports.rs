@@ -2294,7 +2294,9 @@ fn a_template_of_ones_own_without_the_cautions_publishes_nothing() {
 }
 
 /// The group report's cautions too (de-identified, not medical advice; local rules and licensed
-/// practice first): a `group.html.hbs` of one's own without them stops the run (exit 6).
+/// practice first): a `group.html.hbs` of one's own without them stops the run (exit 6), and
+/// `check` finds the same defect in the run's words and with its exit code (it passed such a
+/// program with exit 0: only the participant page went through its check).
 #[test]
 fn a_group_template_of_ones_own_without_the_cautions_publishes_nothing() {
     let prog = ProgramTest::fixture("report-small");
@@ -2313,6 +2315,23 @@ fn a_group_template_of_ones_own_without_the_cautions_publishes_nothing() {
     );
     assert!(out.stderr.contains("not medical advice"), "{}", out.stderr);
     assert!(!prog.dir.join("reports/group").exists());
+    let check = prog.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 6, "{}", check.stdout);
+    let at = out
+        .stderr
+        .find("rendering failed: template: the page made from")
+        .unwrap_or_else(|| panic!("{}", out.stderr));
+    let words = out.stderr[at..].lines().next().unwrap();
+    assert!(words.ends_with("nothing was published"), "{}", out.stderr);
+    assert!(
+        check.stdout.contains(words),
+        "the run said\n{words}\ncheck said\n{}",
+        check.stdout
+    );
+    // With the cautions back, `check` passes the program again.
+    std::fs::write(&path, text).unwrap();
+    let check = prog.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 0, "{}", check.stdout);
 }
 
 /// A participant with no food log: the energy chart draws no logged intake, and its legend and
