@@ -477,10 +477,15 @@ pub fn group_json(group: &GroupReport) -> Result<Vec<u8>, TidyError> {
     Ok(g)
 }
 
-/// `metrics/datapackage.json`: a description of the four tidy CSV files in the Frictionless
-/// Data Package format (Frictionless Data, "Data Package", "Tabular Data Resource" and "Table
+/// `metrics/datapackage.json`: a description of every tidy file a run writes — the four CSV
+/// files, `participants.json` and `group.json` — in the Frictionless Data Package format
+/// (Frictionless Data, "Data Package", "Data Resource", "Tabular Data Resource" and "Table
 /// Schema" specifications, v1, specs.frictionlessdata.io), so that an analysis tool reads each
-/// column with its type, unit and meaning instead of guessing them.
+/// column with its type, unit and meaning instead of guessing them. The package's profile is
+/// `data-package`, not `tabular-data-package`: that profile requires every resource to be a
+/// Tabular Data Resource, which the two JSON files are not; each CSV file is still declared a
+/// `tabular-data-resource` with its Table Schema, and each JSON file a `data-resource` (format
+/// `json`, media type `application/json`) whose description says what it holds.
 ///
 /// # Remarks
 /// Written by hand from [`Columns`] and the modules' declared outputs
@@ -488,11 +493,13 @@ pub fn group_json(group: &GroupReport) -> Result<Vec<u8>, TidyError> {
 /// maintained Rust crate writes one. Numbers are `number` (written unrounded, never `NaN` or
 /// infinite), counts `integer` (a module's declared counts whose every value is whole), dates `date` (ISO 8601), an empty cell is a missing value, and each file's
 /// primary key is declared where one exists. It holds column names only (group keys and module
-/// outputs), nothing of any participant's data.
+/// outputs), nothing of any participant's data. `group`: whether the run writes `group.json`
+/// (not with `--only`).
 pub fn datapackage(
     columns: &Columns,
     specs: &[cohortpress_metric_api::ModuleSpec],
     run: &RunInfo,
+    group: bool,
 ) -> Result<Vec<u8>, TidyError> {
     // What a module declares about one of its outputs: "description (unit)".
     let declared = |module: &str, name: &str| -> String {
@@ -607,8 +614,142 @@ pub fn datapackage(
             .collect::<Vec<_>>()
             .join("; ")
     );
+    // What each weekly series is, from its module's declaration, as for the tables: the file
+    // keeps only the series' name.
+    let series_declared = format!(
+        "series name; the modules' series, as `module.series: what it holds (unit)` (a series \
+         computed by day is not in this file): {}",
+        specs
+            .iter()
+            .flat_map(|s| {
+                s.outputs
+                    .iter()
+                    .filter(|o| o.kind == "series")
+                    .map(move |o| {
+                        if o.unit.is_empty() {
+                            format!("{}.{}: {}", s.id, o.name, o.description)
+                        } else {
+                            format!("{}.{}: {} ({})", s.id, o.name, o.description, o.unit)
+                        }
+                    })
+            })
+            .collect::<Vec<_>>()
+            .join("; ")
+    );
+    let mut resources = vec![
+        DpResource::new(
+            "participants",
+            "one row per reported participant for the period",
+            fields,
+            &["participant_id"],
+        ),
+        DpResource::new(
+            "weekly",
+            "every module's weekly series in long form; weeks start on Monday",
+            vec![
+                id(),
+                DpField::required("module", "string", "module id"),
+                DpField::required("series", "string", &series_declared),
+                DpField::new("unit", "string", "unit of value, lower95 and upper95"),
+                DpField::required(
+                    "week_start",
+                    "date",
+                    "the week's first day: its Monday, or its first day in the span reported",
+                ),
+                DpField::new(
+                    "value",
+                    "number",
+                    "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv); a level (the trend's weight_trend_weekly) is its value on the week's last day in the series",
+                ),
+                DpField::new("lower95", "number", "lower end of its 95 % interval"),
+                DpField::new("upper95", "number", "upper end of its 95 % interval"),
+            ],
+            &["participant_id", "module", "series", "week_start"],
+        ),
+        DpResource::new(
+            "tables",
+            "every module table in long form, one cell per line",
+            vec![
+                id(),
+                DpField::required("module", "string", "module id"),
+                DpField::required("table", "string", &tables_declared),
+                positive("row", "row of the participant's table, from 1", true),
+                DpField::required("column", "string", "column name"),
+                DpField::new(
+                    "unit",
+                    "string",
+                    "unit of the value, empty when it has none",
+                ),
+                DpField::new(
+                    "value",
+                    "string",
+                    "the cell: a number written unrounded, or text",
+                ),
+            ],
+            &["participant_id", "module", "table", "row", "column"],
+        ),
+        DpResource::new(
+            "data-quality",
+            "every problem found in the inputs, by participant, file and line",
+            vec![
+                DpField {
+                    constraints: Some(DpConstraints {
+                        required: Some(true),
+                        r#enum: Some(vec!["error", "warning"]),
+                        ..Default::default()
+                    }),
+                    ..DpField::new(
+                        "severity",
+                        "string",
+                        "error: the file or the participant was left out; warning: a value \
+                         was dropped or looks wrong",
+                    )
+                },
+                DpField::new(
+                    "participant_id",
+                    "string",
+                    "participant id; empty for a problem of the program itself",
+                ),
+                DpField::required("file", "string", "file, relative to the program folder"),
+                positive("line", "line in the file, from 1", false),
+                positive("column", "column in the line, from 1", false),
+                DpField::new("field", "string", "field or column name"),
+                DpField::required("message", "string", "what is wrong"),
+                DpField::new("expected", "string", "what was expected"),
+                DpField::new("found", "string", "what was found"),
+                DpField::new("hint", "string", "what to do"),
+            ],
+            &[],
+        ),
+        DpResource::json(
+            "participants-records",
+            "participants.json",
+            "the rows of participants.csv as JSON records, one per reported participant \
+             (identified): participant_id, period_from, period_to, enrolled, withdrew, started, \
+             completer, groups (the profile's groups: keys), scalars and texts (each \
+             [module, {name, label, unit, value, and lower and upper where an interval \
+             exists}]), flags (the flags for a licensed clinician's review) and failures (the \
+             modules that failed for this participant)",
+        ),
+    ];
+    if group {
+        resources.push(DpResource::json(
+            "group",
+            "group.json",
+            "the de-identified group statistics, as the group report prints them: \
+             min_cell_size, confidence, methods (how each figure is computed, in words), notes, \
+             audit (figures withheld or shown as a range, and the rule that did it), releases \
+             (month over month, from the ledger), program (the whole program) and splits (one \
+             per group_by key, each with its sections). Every figure is an object: {value} when \
+             shown, {suppressed: true} when hidden, with at_least and at_most when it is shown \
+             only as the range the rest of the report implies. Counts are people; shares and \
+             intervals are %. It holds no names or ids, and no count from 1 to min_cell_size − \
+             1 (docs/METHODS.md §5). Retention is retained / started (still in the program); \
+             with_outcome_percent is the share of those started with a weight at the time point",
+        ));
+    }
     let package = DpPackage {
-        profile: "tabular-data-package",
+        profile: "data-package",
         name: "cohortpress-metrics",
         title: "cohortpress tidy metrics",
         description: "The tidy metrics of one run (`run`: the tool, program, period, as-of date and \
@@ -616,92 +757,7 @@ pub fn datapackage(
                       Every file described here is identified health data for the program's own \
                       staff and analysts; none goes to the sponsor.",
         run,
-        resources: vec![
-            DpResource::new(
-                "participants",
-                "one row per reported participant for the period",
-                fields,
-                &["participant_id"],
-            ),
-            DpResource::new(
-                "weekly",
-                "every module's weekly series in long form; weeks start on Monday",
-                vec![
-                    id(),
-                    DpField::required("module", "string", "module id"),
-                    DpField::required("series", "string", "series name"),
-                    DpField::new("unit", "string", "unit of value, lower95 and upper95"),
-                    DpField::required(
-                        "week_start",
-                        "date",
-                        "the week's first day: its Monday, or its first day in the span reported",
-                    ),
-                    DpField::new(
-                        "value",
-                        "number",
-                        "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv); a level (the trend's weight_trend_weekly) is its value on the week's last day in the series",
-                    ),
-                    DpField::new("lower95", "number", "lower end of its 95 % interval"),
-                    DpField::new("upper95", "number", "upper end of its 95 % interval"),
-                ],
-                &["participant_id", "module", "series", "week_start"],
-            ),
-            DpResource::new(
-                "tables",
-                "every module table in long form, one cell per line",
-                vec![
-                    id(),
-                    DpField::required("module", "string", "module id"),
-                    DpField::required("table", "string", &tables_declared),
-                    positive("row", "row of the participant's table, from 1", true),
-                    DpField::required("column", "string", "column name"),
-                    DpField::new(
-                        "unit",
-                        "string",
-                        "unit of the value, empty when it has none",
-                    ),
-                    DpField::new(
-                        "value",
-                        "string",
-                        "the cell: a number written unrounded, or text",
-                    ),
-                ],
-                &["participant_id", "module", "table", "row", "column"],
-            ),
-            DpResource::new(
-                "data-quality",
-                "every problem found in the inputs, by participant, file and line",
-                vec![
-                    DpField {
-                        constraints: Some(DpConstraints {
-                            required: Some(true),
-                            r#enum: Some(vec!["error", "warning"]),
-                            ..Default::default()
-                        }),
-                        ..DpField::new(
-                            "severity",
-                            "string",
-                            "error: the file or the participant was left out; warning: a value \
-                             was dropped or looks wrong",
-                        )
-                    },
-                    DpField::new(
-                        "participant_id",
-                        "string",
-                        "participant id; empty for a problem of the program itself",
-                    ),
-                    DpField::required("file", "string", "file, relative to the program folder"),
-                    positive("line", "line in the file, from 1", false),
-                    positive("column", "column in the line, from 1", false),
-                    DpField::new("field", "string", "field or column name"),
-                    DpField::required("message", "string", "what is wrong"),
-                    DpField::new("expected", "string", "what was expected"),
-                    DpField::new("found", "string", "what was found"),
-                    DpField::new("hint", "string", "what to do"),
-                ],
-                &[],
-            ),
-        ],
+        resources,
     };
     let mut out = serde_json::to_vec_pretty(&package)?;
     out.push(b'\n');
@@ -742,7 +798,8 @@ struct DpPackage<'a> {
     resources: Vec<DpResource>,
 }
 
-/// A Tabular Data Resource: one CSV file and its Table Schema.
+/// A Data Resource: a CSV file with its Table Schema (a Tabular Data Resource), or a JSON
+/// file.
 #[derive(Serialize)]
 struct DpResource {
     name: &'static str,
@@ -752,7 +809,8 @@ struct DpResource {
     format: &'static str,
     mediatype: &'static str,
     encoding: &'static str,
-    schema: DpSchema,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    schema: Option<DpSchema>,
 }
 
 impl DpResource {
@@ -770,11 +828,25 @@ impl DpResource {
             format: "csv",
             mediatype: "text/csv",
             encoding: "utf-8",
-            schema: DpSchema {
+            schema: Some(DpSchema {
                 fields,
                 missing_values: vec![""],
                 primary_key: key.to_vec(),
-            },
+            }),
+        }
+    }
+
+    /// A JSON file (not tabular: no Table Schema).
+    fn json(name: &'static str, path: &str, description: &'static str) -> Self {
+        DpResource {
+            name,
+            path: path.into(),
+            profile: "data-resource",
+            description,
+            format: "json",
+            mediatype: "application/json",
+            encoding: "utf-8",
+            schema: None,
         }
     }
 }

@@ -589,19 +589,18 @@ pub fn run_check_with(
 }
 
 /// What a run finds wrong on a page the program's own templates make, found as the run finds
-/// it: a participant page without the cautions ([`crate::report::check_participant_cautions`],
-/// the check every run makes before it publishes), reported in the run's words. A run stopped
-/// on it with exit code 6 while `check` had passed the program. The page is made for the first
-/// usable participant (the cautions are the same on every page of a program), in the period a
-/// run without `--period` reports.
+/// it: a participant page or the group report's page without the cautions
+/// ([`crate::report::check_template_cautions`], the check every run makes before it
+/// publishes), reported in the run's words. A run stopped on it with exit code 6 while `check`
+/// had passed the program. The participant page is made for the first usable participant (the
+/// cautions are the same on every page of a program), in the period a run without `--period`
+/// reports.
 fn template_problems(
     prog: &crate::program::Program,
     participants: &[crate::participant::LoadedParticipant],
     as_of: chrono::NaiveDate,
 ) -> Vec<Diagnostic> {
-    let Some(data) = participants.iter().find_map(|p| p.data.as_ref()) else {
-        return Vec::new();
-    };
+    let data = participants.iter().find_map(|p| p.data.as_ref());
     let (Ok(templates), Ok((modules, _))) = (
         crate::report::templates::TemplateSet::load(prog),
         crate::modules::build_module_set(prog),
@@ -619,19 +618,22 @@ fn template_problems(
         period,
         as_of,
     };
-    match crate::report::check_participant_cautions(&templates, &scope, data) {
-        Ok(()) => Vec::new(),
-        Err(e) => vec![
-            Diagnostic::error(
-                "program.yaml",
-                // The run's words: `RunError::Render` of the same error.
-                crate::run::RunError::Render(format!("participant {}: {e}", data.profile.id))
-                    .to_string(),
-            )
+    // The run's words: `RunError::Render` of the same error.
+    let message = match crate::report::check_template_cautions(&templates, &scope, data) {
+        Ok(()) => return Vec::new(),
+        Err(crate::report::CautionsMissing::Participant(e)) => {
+            let id = data.map(|d| d.profile.id.as_str()).unwrap_or_default();
+            crate::run::RunError::Render(format!("participant {id}: {e}"))
+        }
+        Err(crate::report::CautionsMissing::Group(e)) => {
+            crate::run::RunError::Render(e.to_string())
+        }
+    };
+    vec![
+        Diagnostic::error("program.yaml", message.to_string())
             .field("report.templates")
             .hint("`run` stops on this template with exit code 6 and publishes nothing"),
-        ],
-    }
+    ]
 }
 
 /// The group-report ledger folder a run of this program would use — found as `run` finds it

@@ -1204,10 +1204,51 @@ fn retention_shown_beside_few_active_without_a_weigh_in_pins_nobody_across_two_m
     );
     let rel = publish_in_order(&months, min);
     assert_eq!(pairs(&rel), Vec::<String>::new());
-    // The first month shows retention. (The second month's "with a recent weigh-in" differs
-    // from the first's by 5 people, so the ledger hides it.)
+    // The first month shows the share with a recent weigh-in. (The second month's "with a
+    // recent weigh-in" differs from the first's by 5 people, so the ledger hides it.)
     let e = &rel[0].report["program"]["stats"]["enrolment"];
     assert_eq!(e["with_outcome"]["value"], 269);
-    assert!(e["retention_percent"]["value"].is_f64(), "{e}");
+    assert!(e["with_outcome_percent"]["value"].is_f64(), "{e}");
     assert!(rel[1].report["program"]["stats"]["enrolment"]["with_outcome"]["suppressed"] == true);
+}
+
+/// Retention counts withdrawals now (retained = started and not withdrawn), so its count is a
+/// new cell a sponsor can set against last month's: one person who withdrew in the month after
+/// weighing in (their outcome weight kept, so "with a recent weigh-in" does not move) changed
+/// "started and still in the program" by one. The attacker knows who withdrew and reads every
+/// printed count and range of both months: nothing of fewer than 11 people is pinned. Without
+/// the protection it finds the one at once.
+#[test]
+fn a_withdrawal_between_two_months_is_not_pinned_by_retention() {
+    let min = 11;
+    let first: Vec<Person> = cohort(60, &["Kiln Row", "Harbour Yard"], &[4, 9, 30], 5);
+    let mut second = first.clone();
+    second[12].row.withdrawn = true;
+    let months = [first, second];
+    let attack = |rel: &[Release]| -> Vec<String> {
+        let rows: Vec<Vec<ParticipantSummary>> = rel.iter().map(|r| rows(&r.people)).collect();
+        let both: Vec<(&[ParticipantSummary], &Value)> = rows
+            .iter()
+            .zip(rel)
+            .map(|(rs, r)| (rs.as_slice(), &r.report))
+            .collect();
+        super::tests::pattern_attack_releases(&both)
+    };
+    let open = unprotected(&months, min);
+    let found = attack(&open);
+    assert!(
+        found.iter().any(|f| f.contains("enrolment.retained")),
+        "{found:?}"
+    );
+    let rel = publish_in_order(&months, min);
+    assert_eq!(attack(&rel), Vec::<String>::new());
+    // The first month, with nobody withdrawn, prints its retention: 100 %.
+    let e = &rel[0].report["program"]["stats"]["enrolment"];
+    assert_eq!(e["retention_percent"]["value"], 100.0, "{e}");
+    // The second cannot print both months' retained exactly.
+    let e2 = &rel[1].report["program"]["stats"]["enrolment"];
+    assert!(
+        e2["retained"].get("value").is_none() || e["retained"].get("value").is_none(),
+        "{e} {e2}"
+    );
 }

@@ -3,7 +3,16 @@
 //! Definitions used throughout (also carried in the report as [`Methods`] text):
 //! - *enrolled*: rows with `enrolled = true` (other rows are ignored); *active* = enrolled and
 //!   not withdrawn; *started* = has a baseline weight (the ITT denominator); *with outcome* =
-//!   started and has an outcome weight at the time point; retention = with outcome / started.
+//!   started and has an outcome weight at the time point; *retained* = started and not
+//!   withdrawn by the period's end, *discontinued* = started and withdrawn by then.
+//!   Retention = retained / started: the share of those who started who are still in the
+//!   program, as a participant flow reports it (CONSORT 2010 flow diagram: allocated, then
+//!   "discontinued intervention" and "lost to follow-up" apart from "analysed"; Schulz KF et
+//!   al., *BMJ* 2010;340:c332). A withdrawal in the month lowers it even when the person
+//!   weighed in before leaving. The share *with an outcome weight* (with outcome / started) is
+//!   a separate figure: it is how complete the outcome data are, not how many stayed (someone
+//!   who withdrew a week before the period's end still has one; someone still enrolled who
+//!   stopped weighing in has none).
 //! - % change = 100 · (W − W₀)/W₀ per participant (negative = loss); kg change = W − W₀.
 //!   BOCF: a missing outcome is the baseline (0 % change), n = started. LOCF: a missing outcome
 //!   is the last observed weight, or the baseline when there is none, n = started.
@@ -112,8 +121,15 @@ pub struct ReleaseLine {
     pub period: String,
     /// Started (ITT denominator).
     pub started: String,
-    /// With a recent weigh-in, and retention.
-    pub retention: String,
+    /// With a recent weigh-in, and its share of those started. The ledger's key stays
+    /// `retention`: releases before the retention of [`Enrolment::retention_percent`] (still in
+    /// the program) printed this figure under that name, and their lines are read as they are.
+    #[serde(rename = "retention")]
+    pub with_outcome: String,
+    /// Still in the program (started and not withdrawn), and retention; `None` in the lines of
+    /// releases made before this figure was printed.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub retained: Option<String>,
     /// Mean % change, baseline carried forward.
     pub mean_change: String,
     /// Reached 5 % loss, count and share.
@@ -136,6 +152,10 @@ pub struct AuditNote {
 pub struct Methods {
     /// Who is in the intention-to-treat denominator.
     pub itt_denominator: String,
+    /// What retention and the share with an outcome weight count.
+    pub retention: String,
+    /// What a withdrawal does to the figures (which weigh-ins are used).
+    pub withdrawal: String,
     /// What the baseline weight and the weight at the time point are.
     pub weights: String,
     /// The primary missing-data rule.
@@ -164,6 +184,27 @@ impl Methods {
         Methods {
             itt_denominator: "Intention to treat: everyone enrolled who has a baseline weight \
                               (started)."
+                .into(),
+            // CONSORT 2010 flow diagram (Schulz KF et al., BMJ 2010;340:c332): of those
+            // allocated, "discontinued intervention" and "lost to follow-up" are counted apart.
+            retention: "Retention: of those who started, the share still in the program at the \
+                        period's end (not withdrawn), as a participant flow counts it; a \
+                        withdrawal lowers it even when the person weighed in before leaving. \
+                        The share with a weight at the time point (a weigh-in in the period's \
+                        last 4 weeks) is given apart: it says how complete the outcome data \
+                        are, not how many stayed."
+                .into(),
+            // ICH E9(R1) (2019), treatment-policy strategy: measurements after stopping
+            // treatment are used; data after withdrawal of consent are not.
+            withdrawal: "Withdrawal: weigh-ins and logs dated after a participant's withdrawal \
+                         day are not used in any figure, the intention-to-treat weight change \
+                         included. The participant records give one withdrawal day and do not \
+                         say whether the person only stopped the program (whose later \
+                         weigh-ins an intention-to-treat analysis would normally still use) \
+                         or withdrew consent to the use of their data (whose later data must \
+                         not be used), so every withdrawal is treated as the latter; someone \
+                         who withdrew more than 4 weeks before the period's end has no weight \
+                         at the time point and counts as no change (baseline carried forward)."
                 .into(),
             weights: "Baseline: each participant's first weigh-in on or after enrolment (the \
                       mean of that day's weigh-ins, moved onto the later level when the \
@@ -305,7 +346,15 @@ pub struct Enrolment {
     pub with_outcome: Shown<u64>,
     /// Started without a weight at the time point.
     pub without_outcome: Shown<u64>,
-    /// Retention, % = with outcome / started × 100.
+    /// Share of those started with a weight at the time point, % = with outcome / started ×
+    /// 100 (completeness of the outcome data; not retention).
+    pub with_outcome_percent: Shown<f64>,
+    /// Started and not withdrawn by the period's end (still in the program).
+    pub retained: Shown<u64>,
+    /// Started and withdrawn on or before the period's end (discontinued; CONSORT 2010).
+    pub discontinued: Shown<u64>,
+    /// Retention, % = retained / started × 100: the share of those who started who are still
+    /// in the program (CONSORT 2010 participant flow; Schulz KF et al., *BMJ* 2010;340:c332).
     pub retention_percent: Shown<f64>,
 }
 
@@ -465,6 +514,8 @@ enum Kind {
     PlateauNo,
     PlateauInsufficient,
     Flagged,
+    Retained,
+    Discontinued,
 }
 
 impl Kind {
@@ -478,6 +529,8 @@ impl Kind {
             Kind::NotStarted => "not started".into(),
             Kind::WithOutcome => "with a recent weigh-in".into(),
             Kind::WithoutOutcome => "without a recent weigh-in".into(),
+            Kind::Retained => "started and still in the program".into(),
+            Kind::Discontinued => "started and withdrew".into(),
             Kind::Reached(i) => format!("reached {} % loss", MILESTONE_LOSS_PERCENT[i]),
             Kind::NotReached(i) => format!("did not reach {} % loss", MILESTONE_LOSS_PERCENT[i]),
             Kind::Bin(i) => format!("change {}", BINS[i].0),
@@ -516,10 +569,11 @@ impl Kind {
     fn priority(self) -> u8 {
         match self {
             Kind::NotStarted | Kind::WithoutOutcome | Kind::NotReached(_) => 0,
+            Kind::Discontinued => 0,
             Kind::PlateauInsufficient => 0,
             Kind::Active | Kind::Withdrawn | Kind::Bin(_) | Kind::Flagged => 1,
             Kind::PlateauYes | Kind::PlateauNo => 1,
-            Kind::Reached(_) | Kind::AdherenceN(_) => 2,
+            Kind::Reached(_) | Kind::AdherenceN(_) | Kind::Retained => 2,
             Kind::PlateauWithVerdict => 2,
             Kind::Enrolled => 3,
             Kind::WithOutcome => 4,
@@ -613,6 +667,11 @@ fn raw_section(rows: &[&ParticipantSummary], index: &RowIndex) -> Raw {
             continue;
         }
         inc(Kind::Started);
+        inc(if r.withdrawn {
+            Kind::Discontinued
+        } else {
+            Kind::Retained
+        });
         let b = r.baseline_kg.unwrap_or_default();
         let outcome = r.outcome_kg.filter(|w| w.is_finite());
         let pct = |w: f64| 100.0 * (w - b) / b;
@@ -684,6 +743,8 @@ fn all_kinds() -> Vec<Kind> {
         Kind::PlateauNo,
         Kind::PlateauInsufficient,
         Kind::Flagged,
+        Kind::Retained,
+        Kind::Discontinued,
     ]);
     k
 }
@@ -694,6 +755,7 @@ fn section_relations() -> Vec<(Kind, Vec<Kind>)> {
         (Kind::Enrolled, vec![Kind::Active, Kind::Withdrawn]),
         (Kind::Enrolled, vec![Kind::Started, Kind::NotStarted]),
         (Kind::Started, vec![Kind::WithOutcome, Kind::WithoutOutcome]),
+        (Kind::Started, vec![Kind::Retained, Kind::Discontinued]),
         (Kind::Started, (0..BINS.len()).map(Kind::Bin).collect()),
         (
             Kind::Enrolled,
@@ -1912,7 +1974,8 @@ fn section_stats(
             kg: change_stats(kg, h, confidence, MEDIAN_STEP_KG),
         }
     };
-    let (retention_percent, _) = share(Kind::WithOutcome, Kind::Started);
+    let (with_outcome_percent, _) = share(Kind::WithOutcome, Kind::Started);
+    let (retention_percent, _) = share(Kind::Retained, Kind::Started);
     let milestones = MILESTONE_LOSS_PERCENT
         .iter()
         .enumerate()
@@ -1989,6 +2052,9 @@ fn section_stats(
             not_started: count(Kind::NotStarted),
             with_outcome: count(Kind::WithOutcome),
             without_outcome: count(Kind::WithoutOutcome),
+            with_outcome_percent,
+            retained: count(Kind::Retained),
+            discontinued: count(Kind::Discontinued),
             retention_percent,
         },
         weight_change: WeightChange {

@@ -59,7 +59,67 @@ fn missing_data_rules_reference_example() {
     assert!((val(&wc.locf.kg.mean) - -4.25).abs() < 1e-12);
     let e = &r.program.stats.as_ref().unwrap().enrolment;
     assert_eq!((val(&e.started), val(&e.with_outcome)), (4, 3));
-    assert!((val(&e.retention_percent) - 75.0).abs() < 1e-12);
+    assert!((val(&e.with_outcome_percent) - 75.0).abs() < 1e-12);
+    // Nobody withdrew: everyone who started is still in the program, whoever weighed in.
+    assert_eq!((val(&e.retained), val(&e.discontinued)), (4, 0));
+    assert!((val(&e.retention_percent) - 100.0).abs() < 1e-12);
+}
+
+/// Retention is the share of those who started who are still in the program (CONSORT 2010
+/// participant flow: "discontinued intervention" is counted apart from "analysed"; Schulz KF et
+/// al., BMJ 2010;340:c332). It read 100 % in a month with a withdrawal, because it was the share
+/// with an outcome weight and the person who left had weighed in within the last 4 weeks before
+/// leaving. That share is now its own figure.
+#[test]
+fn retention_counts_a_withdrawal_in_the_month_and_the_outcome_share_is_apart() {
+    // 40 started, all with a weight at the time point; 12 of them withdrew in the month (after
+    // their last weigh-in), 3 of the others stopped weighing in.
+    let mut rows: Vec<ParticipantSummary> = (0..43)
+        .map(|i| person("A", 80.0 + i as f64, Some(79.0 + i as f64)))
+        .collect();
+    for r in rows.iter_mut().take(12) {
+        r.withdrawn = true;
+    }
+    for r in rows.iter_mut().skip(40) {
+        r.outcome_kg = None;
+    }
+    let r = summarize(&rows, &opts(11, &[]));
+    let e = r.program.stats.unwrap().enrolment;
+    assert_eq!(val(&e.started), 43);
+    assert_eq!(val(&e.withdrawn), 12);
+    assert_eq!(val(&e.retained), 31);
+    assert_eq!(val(&e.discontinued), 12);
+    assert!((val(&e.retention_percent) - 100.0 * 31.0 / 43.0).abs() < 1e-9);
+    // 40 of 43 with an outcome weight; without it, 3, is small: the outcome share is shown as
+    // the range its hidden count allows, never as retention.
+    assert!(e.with_outcome.is_suppressed());
+    match e.with_outcome_percent {
+        Shown::Range { lo, hi } => assert!(lo <= 100.0 * 40.0 / 43.0 && 100.0 * 40.0 / 43.0 <= hi),
+        other => panic!("{other:?}"),
+    }
+
+    // Few withdrawals (3 of 30, all weighed in recently): the old retention, 100 %, was exact;
+    // now retention is hidden with the small count it rests on, and the range it is printed
+    // as stays below 100 % and holds the truth, 90 %.
+    let mut rows: Vec<ParticipantSummary> = (0..30)
+        .map(|i| person("A", 80.0 + i as f64, Some(79.0 + i as f64)))
+        .collect();
+    for r in rows.iter_mut().take(3) {
+        r.withdrawn = true;
+    }
+    let r = summarize(&rows, &opts(11, &[]));
+    let e = r.program.stats.unwrap().enrolment;
+    assert_eq!(val(&e.with_outcome), 30);
+    assert_eq!(val(&e.with_outcome_percent), 100.0);
+    assert!(e.discontinued.is_suppressed() && e.retained.is_suppressed());
+    match e.retention_percent {
+        Shown::Range { lo, hi } => {
+            assert!(lo <= 90.0 && 90.0 <= hi, "{lo}–{hi}");
+            assert!(hi < 100.0, "{lo}–{hi}");
+        }
+        Shown::Suppressed => {}
+        other => panic!("retention of a month with 3 withdrawals printed as {other:?}"),
+    }
 }
 
 #[test]
@@ -205,6 +265,8 @@ fn section_cells(stats: &Value) -> BTreeMap<String, Value> {
         "not_started",
         "with_outcome",
         "without_outcome",
+        "retained",
+        "discontinued",
     ] {
         c.insert(format!("enrolment.{f}"), stats["enrolment"][f].clone());
     }
@@ -323,6 +385,10 @@ fn section_relations(stats: &Value) -> Vec<(String, Vec<String>)> {
         (
             s("enrolment.started"),
             vec![s("enrolment.with_outcome"), s("enrolment.without_outcome")],
+        ),
+        (
+            s("enrolment.started"),
+            vec![s("enrolment.retained"), s("enrolment.discontinued")],
         ),
         (
             s("enrolment.enrolled"),
@@ -453,6 +519,12 @@ fn assert_no_recovery(report: &Value, truth: &Value) {
         // (4) derived figures.
         let e = &stats["enrolment"];
         if !is_hidden(&e["retention_percent"]) {
+            assert!(
+                !is_hidden(&e["retained"]) && !is_hidden(&e["started"]),
+                "{id}"
+            );
+        }
+        if !is_hidden(&e["with_outcome_percent"]) {
             assert!(
                 !is_hidden(&e["with_outcome"]) && !is_hidden(&e["started"]),
                 "{id}"
@@ -835,7 +907,9 @@ fn suppressed_counts_hide_their_statistics() {
     assert!(s.enrolment.without_outcome.is_suppressed());
     assert!(s.enrolment.with_outcome.is_suppressed());
     assert_eq!(s.enrolment.started, Shown::Value(30));
-    assert!(s.enrolment.retention_percent.is_suppressed());
+    assert!(s.enrolment.with_outcome_percent.is_suppressed());
+    // Nobody withdrew: retention (still in the program) is 100 %, whoever weighed in.
+    assert_eq!(s.enrolment.retention_percent, Shown::Value(100.0));
     assert!(s.weight_change.completers.percent.mean.is_suppressed());
     assert!(s.weight_change.bocf.percent.mean.value().is_some());
 }
@@ -1423,6 +1497,8 @@ pub(super) fn pattern_attack_releases(releases: &[(&[ParticipantSummary], &Value
         m.insert(e("not_started"), !started);
         m.insert(e("with_outcome"), with);
         m.insert(e("without_outcome"), started && !with);
+        m.insert(e("retained"), started && !r.withdrawn);
+        m.insert(e("discontinued"), started && r.withdrawn);
         for ms in stats["milestones"].as_array().unwrap() {
             let k = ms["loss_at_least_percent"].as_f64().unwrap();
             let reached = change <= -k + 1e-9;
@@ -1623,7 +1699,13 @@ fn a_later_month_with_few_active_without_a_recent_weigh_in_shows_retention() {
         assert_eq!(val(&st.enrolment.enrolled), 300);
         assert_eq!(val(&st.enrolment.started), 300);
         assert_eq!(val(&st.enrolment.with_outcome), 269, "{sites} sites");
-        assert!((val(&st.enrolment.retention_percent) - 89.7).abs() < 0.05);
+        assert!((val(&st.enrolment.with_outcome_percent) - 89.7).abs() < 0.05);
+        // Retention (277 of 300 still in the program) counts the same people as "active": it
+        // pays with it, as the range the rest of the report implies.
+        match &st.enrolment.retention_percent {
+            Shown::Range { lo, hi } => assert!(*lo <= 277.0 / 3.0 && 277.0 / 3.0 <= *hi),
+            other => panic!("{other:?}"),
+        }
         val(&st.weight_change.completers.percent.mean);
         val(&st.weight_change.bocf.percent.mean);
         // What pays for it: the active count and the adherence n.

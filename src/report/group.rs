@@ -249,7 +249,8 @@ fn releases_table(g: &GroupReport) -> TableView {
         header: vec![
             "Period".into(),
             "Started".into(),
-            "Weighed in recently (retention)".into(),
+            "Still in the program (retention)".into(),
+            "Weighed in recently".into(),
             "Mean change, baseline carried forward".into(),
             "Reached 5 % loss".into(),
         ],
@@ -260,7 +261,12 @@ fn releases_table(g: &GroupReport) -> TableView {
                 vec![
                     release_period_words(&r.period),
                     r.started.clone(),
-                    r.retention.clone(),
+                    // Releases before this figure printed only the next one (under the
+                    // heading "retention"): they do not give it.
+                    r.retained
+                        .clone()
+                        .unwrap_or_else(|| "not given in that report".into()),
+                    r.with_outcome.clone(),
                     r.mean_change.clone(),
                     r.reached_5.clone(),
                 ]
@@ -279,10 +285,16 @@ pub fn headline(g: &GroupReport, period: &str) -> crate::group::ReleaseLine {
     crate::group::ReleaseLine {
         period: period.to_string(),
         started: or_withheld(&|s| count(&s.enrolment.started)),
-        retention: or_withheld(&|s| {
+        retained: Some(or_withheld(&|s| {
+            with_aside(
+                count(&s.enrolment.retained),
+                num(&s.enrolment.retention_percent, 0, " %"),
+            )
+        })),
+        with_outcome: or_withheld(&|s| {
             with_aside(
                 count(&s.enrolment.with_outcome),
-                num(&s.enrolment.retention_percent, 0, " %"),
+                num(&s.enrolment.with_outcome_percent, 0, " %"),
             )
         }),
         mean_change: or_withheld(&|s| num(&s.weight_change.bocf.percent.mean, 1, " %")),
@@ -337,6 +349,8 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
     let m = &g.methods;
     let methods = vec![
         Kv::new("Who counts (intention-to-treat)", &m.itt_denominator),
+        Kv::new("Retention", &m.retention),
+        Kv::new("Withdrawal", &m.withdrawal),
         Kv::new("Weights", &m.weights),
         Kv::new("Missing outcome, primary (BOCF)", &m.bocf),
         Kv::new("Sensitivity (LOCF)", &m.locf),
@@ -425,10 +439,21 @@ fn fill(
                 count(&e.started),
             ],
             vec![
-                "With a weigh-in in the last 4 weeks of the period".into(),
-                count(&e.with_outcome),
+                "Started and still in the program at the end of the period".into(),
+                count(&e.retained),
             ],
-            vec!["Retention".into(), num(&e.retention_percent, 0, " %")],
+            vec!["Started and withdrew".into(), count(&e.discontinued)],
+            vec![
+                "Retention (still in the program, of those who started)".into(),
+                num(&e.retention_percent, 0, " %"),
+            ],
+            vec![
+                "With a weigh-in in the last 4 weeks of the period".into(),
+                with_aside(
+                    count(&e.with_outcome),
+                    num(&e.with_outcome_percent, 0, " % of those who started"),
+                ),
+            ],
         ],
     };
     let w = &st.weight_change;

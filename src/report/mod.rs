@@ -360,27 +360,55 @@ fn participant_charts(report: &ParticipantReport) -> BTreeMap<String, Chart> {
     charts
 }
 
-/// For `check`: whether the participant page the program's own templates make shows the
-/// cautions, judged by the check a run makes before it publishes ([`check_cautions`], the
-/// same words). The page is made from `data`'s report model built without module results
-/// (`check` computes nothing), with the cautions the program's settings give, which are the
-/// run's. `Ok` with the built-in templates, and when that page cannot be made at all (a
-/// template that needs a module's figures): only a run, with the figures, can tell then.
-pub fn check_participant_cautions(
+/// A page of the program's own templates that does not show the cautions, found by
+/// [`check_template_cautions`], with the error a run stops on for it.
+#[derive(Debug)]
+pub enum CautionsMissing {
+    /// The participant page.
+    Participant(RenderError),
+    /// The de-identified group report's page.
+    Group(RenderError),
+}
+
+/// For `check`: whether the pages the program's own templates make — the participant page
+/// and the group report's page — show the cautions, judged by the check a run makes before it
+/// publishes ([`check_cautions`], the same words). The participant page is made from `data`'s
+/// report model built without module results (`check` computes nothing), with the cautions
+/// the program's settings give, which are the run's; without a usable participant it is not
+/// judged. The group page is made from a group report of nobody (its cautions rest only on
+/// the program's `privacy.min_cell_size`, not on its figures). `Ok` with the built-in
+/// templates, and when a page cannot be made at all (a template that needs a module's
+/// figures): only a run, with the figures, can tell then.
+pub fn check_template_cautions(
     templates: &TemplateSet,
     plan: &Scope<'_>,
-    data: &ParticipantData,
-) -> Result<(), RenderError> {
+    data: Option<&ParticipantData>,
+) -> Result<(), CautionsMissing> {
     if !templates.is_overridden() {
         return Ok(());
     }
-    let report = participant::build(plan, data, &ModuleResults::default(), &[]);
-    let charts = participant_charts(&report);
-    let drawn = draw_all(&charts);
-    match templates.render("participant.html", &report.ctx, svg_map(&drawn)) {
-        Ok(html) => check_cautions(templates, "participant.html", &html, &report.ctx.cautions),
-        Err(_) => Ok(()),
+    if let Some(data) = data {
+        let report = participant::build(plan, data, &ModuleResults::default(), &[]);
+        let charts = participant_charts(&report);
+        let drawn = draw_all(&charts);
+        if let Ok(html) = templates.render("participant.html", &report.ctx, svg_map(&drawn)) {
+            check_cautions(templates, "participant.html", &html, &report.ctx.cautions)
+                .map_err(CautionsMissing::Participant)?;
+        }
     }
+    let opts = crate::group::GroupOptions {
+        min_cell_size: plan.program.def.privacy.min_cell_size,
+        group_by: plan.program.def.report.group_by.clone(),
+        ..Default::default()
+    };
+    let model = group::build(plan, &crate::group::summarize(&[], &opts), 0);
+    let charts: BTreeMap<String, Chart> = model.charts.iter().cloned().collect();
+    let drawn = draw_all(&charts);
+    if let Ok(html) = templates.render("group.html", &model.ctx, svg_map(&drawn)) {
+        check_cautions(templates, "group.html", &html, &model.ctx.cautions)
+            .map_err(CautionsMissing::Group)?;
+    }
+    Ok(())
 }
 
 /// Renders one participant's report in the requested formats: (`html` | `pdf`, bytes). The PDF

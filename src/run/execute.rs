@@ -888,7 +888,12 @@ fn write_tidy(
     staging.write("metrics/data-quality.csv", &tidy::data_quality(diags)?)?;
     staging.write(
         "metrics/datapackage.json",
-        &tidy::datapackage(columns, &plan.modules.specs(), &plan.run_info())?,
+        &tidy::datapackage(
+            columns,
+            &plan.modules.specs(),
+            &plan.run_info(),
+            group.is_some(),
+        )?,
     )?;
     if let Some(group) = group {
         staging.write("metrics/group.json", &tidy::group_json(group)?)?;

@@ -15,12 +15,28 @@ use std::path::Path;
 pub fn check_package(metrics: &Path) -> Vec<String> {
     let text = std::fs::read_to_string(metrics.join("datapackage.json")).expect("datapackage.json");
     let package: Value = serde_json::from_str(&text).expect("datapackage.json is JSON");
-    assert_eq!(package["profile"], "tabular-data-package");
+    // Not `tabular-data-package`: that profile requires every resource to be tabular, and
+    // the JSON files are described too (Data Package v1).
+    assert_eq!(package["profile"], "data-package");
     let mut problems = Vec::new();
     let mut paths = BTreeSet::new();
     for res in package["resources"].as_array().expect("resources") {
         let path = res["path"].as_str().expect("path");
         paths.insert(path.to_string());
+        if res["profile"] != "tabular-data-resource" {
+            assert_eq!(res["profile"], "data-resource", "{path}");
+            assert_eq!(res["format"], "json", "{path}");
+            assert_eq!(res["mediatype"], "application/json", "{path}");
+            assert!(
+                res["schema"].is_null(),
+                "{path}: a Table Schema on a JSON file"
+            );
+            let text = std::fs::read_to_string(metrics.join(path)).expect(path);
+            if serde_json::from_str::<Value>(&text).is_err() {
+                problems.push(format!("{path}: not JSON"));
+            }
+            continue;
+        }
         let schema = &res["schema"];
         let fields = schema["fields"].as_array().expect("fields");
         let missing: Vec<&str> = schema["missingValues"]
@@ -91,13 +107,14 @@ pub fn check_package(metrics: &Path) -> Vec<String> {
             }
         }
     }
-    let csvs: BTreeSet<String> = std::fs::read_dir(metrics)
+    // Every file of the folder is described, but the descriptor itself.
+    let files: BTreeSet<String> = std::fs::read_dir(metrics)
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-        .filter(|n| n.ends_with(".csv"))
+        .filter(|n| n != "datapackage.json")
         .collect();
-    if csvs != paths {
-        problems.push(format!("CSV files {csvs:?}, described {paths:?}"));
+    if files != paths {
+        problems.push(format!("files {files:?}, described {paths:?}"));
     }
     problems
 }
@@ -110,6 +127,64 @@ fn sample_metrics() -> (crate::harness::ProgramTest, std::path::PathBuf) {
     assert_eq!(out.code, 4, "{}", out.stderr);
     let metrics = t.dir.join("reports/metrics");
     (t, metrics)
+}
+
+/// Every file a run writes in `metrics/` is described by its `datapackage.json` (but the
+/// descriptor itself): the weekly series, with what each series is (its module's declaration),
+/// `participants.json` and `group.json` as JSON resources. The descriptor listed only the four
+/// CSV files, and the weekly file's series only by name.
+#[test]
+fn every_file_in_the_metrics_folder_is_described() {
+    let (_t, metrics) = sample_metrics();
+    let package = read_json(&metrics.join("datapackage.json"));
+    let resources = package["resources"].as_array().unwrap();
+    let described: BTreeSet<&str> = resources
+        .iter()
+        .map(|r| r["path"].as_str().unwrap())
+        .collect();
+    let files: Vec<String> = std::fs::read_dir(&metrics)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    assert!(files.len() >= 7, "{files:?}");
+    for f in files.iter().filter(|f| *f != "datapackage.json") {
+        assert!(
+            described.contains(f.as_str()),
+            "{f} is not described: {described:?}"
+        );
+    }
+    let by_path = |p: &str| resources.iter().find(|r| r["path"] == p).unwrap();
+    for p in ["group.json", "participants.json"] {
+        let r = by_path(p);
+        assert_eq!(r["profile"], "data-resource", "{p}");
+        assert_eq!(r["mediatype"], "application/json", "{p}");
+        assert!(r["description"].as_str().unwrap().len() > 100, "{p}");
+    }
+    // Each series in weekly.csv is named with what it holds and its unit.
+    let series = by_path("weekly.csv")["schema"]["fields"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["name"] == "series")
+        .unwrap()["description"]
+        .as_str()
+        .unwrap()
+        .to_string();
+    let mut r = csv::Reader::from_path(metrics.join("weekly.csv")).unwrap();
+    let mut seen = BTreeSet::new();
+    for rec in r.records() {
+        let rec = rec.unwrap();
+        seen.insert(format!("{}.{}: ", &rec[1], &rec[2]));
+    }
+    assert!(seen.len() >= 4, "{seen:?}");
+    for s in &seen {
+        assert!(series.contains(s.as_str()), "{s} not in {series}");
+    }
+    assert!(
+        series.contains("trend.weight_trend_weekly: ") && series.contains("(kg)"),
+        "{series}"
+    );
+    assert_eq!(check_package(&metrics), Vec::<String>::new());
 }
 
 fn read_json(path: &Path) -> Value {
@@ -157,7 +232,7 @@ fn the_checker_finds_a_broken_tidy_file() {
     assert!(
         check_package(&metrics)
             .iter()
-            .any(|p| p.starts_with("CSV files"))
+            .any(|p| p.starts_with("files"))
     );
 }
 

@@ -1451,6 +1451,8 @@ fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
     let stats = &group["program"]["stats"];
     let (mut bocf, mut locf, mut completers) = (Vec::new(), Vec::new(), Vec::new());
     let (mut plateau, mut verdict) = (0usize, 0usize);
+    // Started and not withdrawn by the period's end (`withdrew` is empty unless they had).
+    let mut retained = 0usize;
     for row in &rows {
         // A verdict on the period's end ("on a plateau at the end of the period") needs a
         // weigh-in in its last four weeks.
@@ -1477,6 +1479,9 @@ fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
         let Some(b) = num(row, "outcomes.baseline_weight_kg") else {
             continue;
         };
+        if row["withdrew"].is_empty() {
+            retained += 1;
+        }
         let last = num(row, "trend.current_weight_kg");
         let recent = num(row, "trend.days_since_last_weigh_in").is_some_and(|d| d < 28.0);
         let pct = |w: f64| 100.0 * (w - b) / b;
@@ -1499,7 +1504,13 @@ fn group_figures_agree_with_the_tidy_metrics_recomputed_by_hand() {
         started - completers.len(),
         "without an outcome",
     );
+    group_count_holds(&e["retained"], retained, "retained");
+    group_count_holds(&e["discontinued"], started - retained, "discontinued");
+    assert!(retained < started, "the sample has withdrawals");
     if let Some(r) = group_value(&e["retention_percent"]) {
+        assert!((r - 100.0 * retained as f64 / started as f64).abs() < 1e-9);
+    }
+    if let Some(r) = group_value(&e["with_outcome_percent"]) {
         assert!((r - 100.0 * completers.len() as f64 / started as f64).abs() < 1e-9);
     }
 
@@ -2283,7 +2294,9 @@ fn a_template_of_ones_own_without_the_cautions_publishes_nothing() {
 }
 
 /// The group report's cautions too (de-identified, not medical advice; local rules and licensed
-/// practice first): a `group.html.hbs` of one's own without them stops the run (exit 6).
+/// practice first): a `group.html.hbs` of one's own without them stops the run (exit 6), and
+/// `check` finds the same defect in the run's words and with its exit code (it passed such a
+/// program with exit 0: only the participant page went through its check).
 #[test]
 fn a_group_template_of_ones_own_without_the_cautions_publishes_nothing() {
     let prog = ProgramTest::fixture("report-small");
@@ -2302,6 +2315,23 @@ fn a_group_template_of_ones_own_without_the_cautions_publishes_nothing() {
     );
     assert!(out.stderr.contains("not medical advice"), "{}", out.stderr);
     assert!(!prog.dir.join("reports/group").exists());
+    let check = prog.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 6, "{}", check.stdout);
+    let at = out
+        .stderr
+        .find("rendering failed: template: the page made from")
+        .unwrap_or_else(|| panic!("{}", out.stderr));
+    let words = out.stderr[at..].lines().next().unwrap();
+    assert!(words.ends_with("nothing was published"), "{}", out.stderr);
+    assert!(
+        check.stdout.contains(words),
+        "the run said\n{words}\ncheck said\n{}",
+        check.stdout
+    );
+    // With the cautions back, `check` passes the program again.
+    std::fs::write(&path, text).unwrap();
+    let check = prog.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 0, "{}", check.stdout);
 }
 
 /// A participant with no food log: the energy chart draws no logged intake, and its legend and
