@@ -32,6 +32,7 @@ pub fn exit_code_of(report: &CheckReport) -> i32 {
             .iter()
             .chain(&report.templates)
             .chain(&report.output)
+            .chain(&report.work_folder)
             .any(|d| d.severity == Severity::Error),
         module_failures: 0,
         warnings,
@@ -308,6 +309,13 @@ pub fn write_report_with(
         writeln!(out)?;
         writeln!(out, "participants folder:")?;
         for d in &report.discovery {
+            writeln!(out, "{d}")?;
+        }
+    }
+    if !report.work_folder.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "temporary folder for external modules:")?;
+        for d in &report.work_folder {
             writeln!(out, "{d}")?;
         }
     }

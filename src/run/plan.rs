@@ -224,7 +224,15 @@ fn invalid(diagnostics: Vec<Diagnostic>) -> PlanError {
 /// Loads and checks the program and its modules: the same function `check` uses
 /// ([`crate::check::load_program_checked`]), so both refuse the same programs.
 fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
-    let (program, modules, warnings) = crate::check::load_program_checked(root).map_err(invalid)?;
+    use crate::check::LoadError;
+    let (program, modules, warnings) =
+        crate::check::load_program_checked(root).map_err(|e| match e {
+            LoadError::Program(d) => invalid(d),
+            LoadError::WorkFolder(_, d) => RunError::Invalid {
+                by: Blame::Environment,
+                diagnostics: vec![d],
+            },
+        })?;
     for w in &warnings {
         tracing::warn!("{w}");
     }
