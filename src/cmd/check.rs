@@ -533,7 +533,13 @@ pub fn run_check_with(
             };
         }
         if let Some(m) = refused {
-            report.program = Err(vec![Diagnostic::error("program.yaml", m)]);
+            let mut d = Diagnostic::error("program.yaml", m).field("report.out");
+            if let Some((line, col)) =
+                crate::program::load::key_position_in_file(&prog.root, "report.out")
+            {
+                d = d.at(line, col);
+            }
+            report.program = Err(vec![d]);
             report.participants.clear();
             report.discovery.clear();
         } else if let Err(d) = crate::report::templates::load_checked(prog) {
