@@ -115,7 +115,7 @@ pub fn load_program_checked(
     if program.def.modules.iter().any(|m| m.command.is_some())
         && let Some(d) = modules::external::work_folder_problem()
     {
-        return Err(LoadError::WorkFolder(Box::new(program), d));
+        return Err(LoadError::WorkFolder(Box::new(program), Box::new(d)));
     }
     let (modules, warnings) = modules::build_module_set(&program).map_err(LoadError::Program)?;
     Ok((program, modules, warnings))
@@ -128,7 +128,7 @@ pub enum LoadError {
     Program(Vec<Diagnostic>),
     /// The program is valid as far as it was read, but the temporary folder its external
     /// modules would run in cannot be used (exit code 6): the program read, and the problem.
-    WorkFolder(Box<Program>, Diagnostic),
+    WorkFolder(Box<Program>, Box<Diagnostic>),
 }
 
 /// Loads the program at `root` (checked as a run checks it, modules included:
@@ -139,7 +139,7 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
         Ok((p, _, _)) => (Ok(p), Vec::new()),
         Err(LoadError::Program(d)) => (Err(d), Vec::new()),
         // The participants are still checked: they do not depend on the modules.
-        Err(LoadError::WorkFolder(p, d)) => (Ok(*p), vec![d]),
+        Err(LoadError::WorkFolder(p, d)) => (Ok(*p), vec![*d]),
     };
     let Ok(prog) = &program else {
         return CheckReport {

@@ -238,7 +238,7 @@ fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
             LoadError::Program(d) => invalid(d),
             LoadError::WorkFolder(_, d) => RunError::Invalid {
                 by: Blame::Environment,
-                diagnostics: vec![d],
+                diagnostics: vec![*d],
             },
         })?;
     for w in &warnings {
