@@ -31,6 +31,9 @@ pub struct CheckReport {
     /// Problems of the output folder a run would stop on with exit code 6 (filled by
     /// [`crate::cmd::check`]): the folder it is written in cannot be written.
     pub output: Vec<Diagnostic>,
+    /// Problems of the temporary folder (`TMPDIR`) the program's external modules would run
+    /// in: a run stops on them with exit code 6 before any participant is computed.
+    pub work_folder: Vec<Diagnostic>,
 }
 
 impl CheckReport {
@@ -56,6 +59,7 @@ impl CheckReport {
         program
             .iter()
             .chain(&self.discovery)
+            .chain(&self.work_folder)
             .chain(&self.output)
             .chain(&self.ledger)
             .chain(&self.templates)
@@ -93,23 +97,50 @@ pub(crate) fn plural(n: usize) -> &'static str {
 /// `modules:` list and their settings ([`modules::build_module_set`]: unknown ids, bad
 /// settings, order, external handshakes, settings two modules must agree on).
 /// Returns the program, its module set and the module warnings, or every problem found.
+///
+/// A program with external modules needs a usable temporary folder (`TMPDIR`) to start them
+/// in: without one, that is the error ([`LoadError::WorkFolder`], exit code 6 like a folder a
+/// run writes that cannot be used), not the program's.
 pub fn load_program_checked(
     root: &Path,
-) -> Result<(Program, ModuleSet, Vec<Diagnostic>), Vec<Diagnostic>> {
+) -> Result<(Program, ModuleSet, Vec<Diagnostic>), LoadError> {
     let file = root.join(program::load::PROGRAM_FILE);
     if let Err(m) = crate::limits::check_size(&file) {
-        return Err(vec![Diagnostic::error(program::load::PROGRAM_FILE, m)]);
+        return Err(LoadError::Program(vec![Diagnostic::error(
+            program::load::PROGRAM_FILE,
+            m,
+        )]));
     }
-    let program = program::load_program(root)?;
-    let (modules, warnings) = modules::build_module_set(&program)?;
+    let program = program::load_program(root).map_err(LoadError::Program)?;
+    if program.def.modules.iter().any(|m| m.command.is_some())
+        && let Some(d) = modules::external::work_folder_problem()
+    {
+        return Err(LoadError::WorkFolder(Box::new(program), Box::new(d)));
+    }
+    let (modules, warnings) = modules::build_module_set(&program).map_err(LoadError::Program)?;
     Ok((program, modules, warnings))
+}
+
+/// Why [`load_program_checked`] gave no program to run.
+#[derive(Debug)]
+pub enum LoadError {
+    /// `program.yaml` or its modules are invalid: every problem (exit code 3).
+    Program(Vec<Diagnostic>),
+    /// The program is valid as far as it was read, but the temporary folder its external
+    /// modules would run in cannot be used (exit code 6): the program read, and the problem.
+    WorkFolder(Box<Program>, Box<Diagnostic>),
 }
 
 /// Loads the program at `root` (checked as a run checks it, modules included:
 /// [`load_program_checked`]) and every participant (in parallel; results in folder order).
 /// Reads only; nothing is computed or written.
 pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
-    let program = load_program_checked(root).map(|(p, _, _)| p);
+    let (program, work_folder) = match load_program_checked(root) {
+        Ok((p, _, _)) => (Ok(p), Vec::new()),
+        Err(LoadError::Program(d)) => (Err(d), Vec::new()),
+        // The participants are still checked: they do not depend on the modules.
+        Err(LoadError::WorkFolder(p, d)) => (Ok(*p), vec![*d]),
+    };
     let Ok(prog) = &program else {
         return CheckReport {
             program,
@@ -118,6 +149,7 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
             ledger: Vec::new(),
             templates: Vec::new(),
             output: Vec::new(),
+            work_folder,
         };
     };
     let (dirs, discovery) = participant::discover(prog);
@@ -144,5 +176,6 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
         ledger: Vec::new(),
         templates: Vec::new(),
         output: Vec::new(),
+        work_folder,
     }
 }

@@ -32,6 +32,7 @@ pub fn exit_code_of(report: &CheckReport) -> i32 {
             .iter()
             .chain(&report.templates)
             .chain(&report.output)
+            .chain(&report.work_folder)
             .any(|d| d.severity == Severity::Error),
         module_failures: 0,
         warnings,
@@ -311,6 +312,13 @@ pub fn write_report_with(
             writeln!(out, "{d}")?;
         }
     }
+    if !report.work_folder.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "temporary folder for external modules:")?;
+        for d in &report.work_folder {
+            writeln!(out, "{d}")?;
+        }
+    }
     if !report.output.is_empty() {
         writeln!(out)?;
         writeln!(out, "output folder:")?;
@@ -525,7 +533,13 @@ pub fn run_check_with(
             };
         }
         if let Some(m) = refused {
-            report.program = Err(vec![Diagnostic::error("program.yaml", m)]);
+            let mut d = Diagnostic::error("program.yaml", m).field("report.out");
+            if let Some((line, col)) =
+                crate::program::load::key_position_in_file(&prog.root, "report.out")
+            {
+                d = d.at(line, col);
+            }
+            report.program = Err(vec![d]);
             report.participants.clear();
             report.discovery.clear();
         } else if let Err(d) = crate::report::templates::load_checked(prog) {

@@ -118,6 +118,7 @@ pub fn error_code(e: &RunError) -> i32 {
     let blamed = |by: &Blame| match by {
         Blame::CommandLine => exit_code::USAGE,
         Blame::Program => exit_code::PROGRAM_INVALID,
+        Blame::Environment => exit_code::OUTPUT_FAILED,
     };
     match e {
         RunError::Invalid { by, .. } | RunError::Refused { by, .. } => blamed(by),
@@ -199,7 +200,16 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
 pub fn modules_command(program: Option<&Path>) -> i32 {
     let loaded = match program {
         Some(root) => match program::load_program(root) {
-            Ok(p) => Some(p),
+            Ok(p) => {
+                // External modules are asked for their spec: they need a temporary folder.
+                if p.def.modules.iter().any(|m| m.command.is_some())
+                    && let Some(d) = crate::modules::external::work_folder_problem()
+                {
+                    eprintln!("{d}");
+                    return exit_code::OUTPUT_FAILED;
+                }
+                Some(p)
+            }
             Err(diags) => {
                 for d in &diags {
                     eprintln!("{d}");

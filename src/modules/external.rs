@@ -56,6 +56,61 @@ const READER_GRACE: Duration = Duration::from_millis(500);
 #[cfg(not(unix))]
 const EXIT_POLL: Duration = Duration::from_millis(20);
 
+/// A fresh empty working folder for one call, owner only (a module may write a participant's
+/// data there), in the system's temporary folder (`TMPDIR`, else `/tmp`).
+fn new_work_folder() -> std::io::Result<tempfile::TempDir> {
+    let mut folder = tempfile::Builder::new();
+    folder.prefix("cohortpress-module-");
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        folder.permissions(std::fs::Permissions::from_mode(0o700));
+    }
+    folder.tempdir()
+}
+
+/// What is wrong with the temporary folder every call of an external module is given a working
+/// folder in (`TMPDIR`, else `/tmp`), found by making one and removing it, or `None` when it
+/// works. A `TMPDIR` naming a folder that does not exist (a cron or container environment
+/// carried over from another machine), a file or a folder this user cannot write made every
+/// external module fail its handshake, and the run blamed `program.yaml` (exit 3) for it.
+pub fn work_folder_problem() -> Option<crate::diag::Diagnostic> {
+    let e = new_work_folder().err()?;
+    // The OS's words without the random name tried (`at path "/x/cohortpress-module-UBWJx4"`).
+    let e = e
+        .raw_os_error()
+        .map_or(e, std::io::Error::from_raw_os_error);
+    let dir = std::env::temp_dir();
+    let named = match std::env::var_os("TMPDIR") {
+        Some(_) => "the temporary folder named by TMPDIR",
+        None => "the system's temporary folder",
+    };
+    let why = match e.kind() {
+        std::io::ErrorKind::NotFound => "it does not exist".to_string(),
+        std::io::ErrorKind::PermissionDenied => "this user cannot write in it".to_string(),
+        _ if dir.exists() && !dir.is_dir() => "it is not a folder".to_string(),
+        _ => e.to_string(),
+    };
+    Some(
+        crate::diag::Diagnostic::error(
+            dir.display().to_string(),
+            format!(
+                "{named} cannot be used ({why}): each call of an external module runs in a \
+                 fresh working folder made there, so no external module can be started"
+            ),
+        )
+        .expected("a folder this user can create folders in")
+        .found(match std::env::var_os("TMPDIR") {
+            Some(v) => format!("TMPDIR={}: {e}", std::path::Path::new(&v).display()),
+            None => format!("{}: {e}", dir.display()),
+        })
+        .hint(
+            "set TMPDIR to such a folder (or leave it unset for /tmp) in the environment the \
+             command runs in (a crontab line, a service unit, a container), then run again",
+        ),
+    )
+}
+
 /// The host's name and version as sent in `hello`.
 pub fn host_string() -> String {
     format!("cohortpress {}", env!("CARGO_PKG_VERSION"))
@@ -168,14 +223,7 @@ impl Launch {
         let mut live = live_groups();
         // Declared before the process so that it is removed after the process group is killed.
         // Owner only: a module may write a participant's data there.
-        let mut folder = tempfile::Builder::new();
-        folder.prefix("cohortpress-module-");
-        #[cfg(unix)]
-        {
-            use std::os::unix::fs::PermissionsExt;
-            folder.permissions(std::fs::Permissions::from_mode(0o700));
-        }
-        let workdir = folder.tempdir().map_err(|e| {
+        let workdir = new_work_folder().map_err(|e| {
             CallError::Failed(format!(
                 "cannot create an empty working folder for it in {}: {e}",
                 std::env::temp_dir().display()

@@ -340,7 +340,27 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         let raw_name = entry.file_name();
         let name = raw_name.to_string_lossy().into_owned();
         if name.starts_with('.') {
-            continue; // hidden entries (.DS_Store, .git) are not participants
+            // Hidden entries (.DS_Store, .git) are not participants. A hidden folder holding a
+            // profile.yaml looks like one hidden by a typo or a sync tool (`.SG-050`): it was
+            // left out without a word, not even under `check --verbose`.
+            if entry.file_type().is_dir()
+                && std::fs::symlink_metadata(entry.path().join("profile.yaml")).is_ok()
+            {
+                diags.push(
+                    Diagnostic::warning(
+                        format!("{PARTICIPANTS_DIR}/{}", printable(&name)),
+                        "a hidden folder (its name starts with `.`) holds a profile.yaml; it is \
+                         skipped, so whoever it holds is not reported",
+                    )
+                    .expected("participant folders named by their id, e.g. `LW-0147`")
+                    .found(format!("`{}`", printable(&name)))
+                    .hint(
+                        "if it is a participant's folder, rename it to the participant's id; \
+                         otherwise move it out of participants/",
+                    ),
+                );
+            }
+            continue;
         }
         let rel = format!("{PARTICIPANTS_DIR}/{}", printable(&name));
         let ft = entry.file_type();

@@ -252,6 +252,10 @@ pub enum MassUnit {
     Lb,
     /// Stones of 14 lb.
     St,
+    /// Grams (a thousandth of a kilogram), as some scales and health apps export body weight.
+    /// Read only where a file states it (a header `weight_g`, a `unit` cell `g`, `72500 g`):
+    /// never guessed from a number's size.
+    G,
 }
 
 impl MassUnit {
@@ -263,6 +267,7 @@ impl MassUnit {
             "kg" | "kgs" | "kilo" | "kilos" | "kilogram" | "kilograms" => MassUnit::Kg,
             "lb" | "lbs" | "pound" | "pounds" => MassUnit::Lb,
             "st" | "stone" | "stones" => MassUnit::St,
+            "g" | "gram" | "grams" => MassUnit::G,
             _ => return None,
         })
     }
@@ -273,6 +278,7 @@ impl MassUnit {
             MassUnit::Kg => "kg",
             MassUnit::Lb => "lb",
             MassUnit::St => "st",
+            MassUnit::G => "g",
         }
     }
 }
@@ -612,6 +618,9 @@ mod tests {
         );
         assert_eq!(split_mass("11.5 st"), Some(One("11.5", Some(MassUnit::St))));
         assert_eq!(split_mass("72,5 kg"), Some(One("72,5", Some(MassUnit::Kg))));
+        assert_eq!(split_mass("72500 g"), Some(One("72500", Some(MassUnit::G))));
+        assert_eq!(split_mass("72500g"), Some(One("72500", Some(MassUnit::G))));
+        assert_eq!(MassUnit::parse("Grams"), Some(MassUnit::G));
         assert_eq!(split_mass("72.5"), Some(One("72.5", None)));
         assert_eq!(split_mass("14 st 2 lb"), Some(StonesPounds("14", "2")));
         assert_eq!(split_mass("14st 2lb"), Some(StonesPounds("14", "2")));

@@ -480,6 +480,8 @@ enum WeightUnit {
     St,
     /// Stones and pounds (`14 st 2 lb`), the value held in pounds.
     StLb,
+    /// Grams, as the file states it (never guessed from the numbers).
+    G,
 }
 
 impl From<MassUnit> for WeightUnit {
@@ -488,6 +490,7 @@ impl From<MassUnit> for WeightUnit {
             MassUnit::Kg => WeightUnit::Kg,
             MassUnit::Lb => WeightUnit::Lb,
             MassUnit::St => WeightUnit::St,
+            MassUnit::G => WeightUnit::G,
         }
     }
 }
@@ -499,6 +502,7 @@ impl WeightUnit {
             WeightUnit::Kg => MassUnit::Kg,
             WeightUnit::Lb => MassUnit::Lb,
             WeightUnit::St | WeightUnit::StLb => MassUnit::St,
+            WeightUnit::G => MassUnit::G,
         }
     }
 
@@ -664,6 +668,8 @@ impl RawWeight {
             WeightUnit::Lb => Mass::from_lb(self.value).kg(),
             WeightUnit::St => Mass::from_lb(LB_PER_STONE * self.value).kg(),
             WeightUnit::StLb => Mass::from_lb(self.value).kg(),
+            // 1 kg = 1000 g (SI).
+            WeightUnit::G => self.value / 1000.0,
         }
     }
 }
@@ -815,7 +821,7 @@ pub fn parse_weights(
                         "weight",
                         "unknown weight unit in the cell; the row is dropped",
                     )
-                    .expected("a weight with `kg`, `lb` or `st`, or a plain number")
+                    .expected("a weight with `kg`, `lb`, `st` or `g`, or a plain number")
                     .found(format!("`{raw}` (unit `{u}`)")),
                 );
                 return None;
@@ -831,7 +837,7 @@ pub fn parse_weights(
                 None => {
                     d.push(
                         c.warn("unit", "unknown weight unit; the row is dropped")
-                            .expected("`kg`, `lb` or `st` (decimal stones)")
+                            .expected("`kg`, `lb`, `st` (decimal stones) or `g`")
                             .found(format!("`{t}`")),
                     );
                     return None;
@@ -863,14 +869,22 @@ pub fn parse_weights(
                 return None;
             }
             (Some(cell), _) => {
-                c.table.recognised(if cell == WeightUnit::StLb {
-                    "stones and pounds (`14 st 2 lb` = 198 lb)"
-                } else {
-                    "weights with their unit in the cell (`72.5 kg`)"
+                c.table.recognised(match cell {
+                    WeightUnit::StLb => "stones and pounds (`14 st 2 lb` = 198 lb)",
+                    WeightUnit::G => {
+                        "weights in grams in the cells (`72500 g`), converted to kilograms"
+                    }
+                    _ => "weights with their unit in the cell (`72.5 kg`)",
                 });
                 cell
             }
-            (None, Some(said)) => WeightUnit::from(said),
+            (None, Some(said)) => {
+                if said == MassUnit::G {
+                    c.table
+                        .recognised("weights in grams, converted to kilograms (1 kg = 1000 g)");
+                }
+                WeightUnit::from(said)
+            }
             (None, None) => {
                 if c.table.column("unit").is_some() {
                     // Pushes the "is empty" warning.

@@ -1153,6 +1153,13 @@ fn read_records(
         .iter()
         .filter_map(|(v, allowed, r)| Some((written[*columns.get(v)?].clone(), *allowed, (*r)?)))
         .collect();
+    // An activity file of steps only (a step counter's export).
+    let steps_only = spec.name == "activity.csv"
+        && columns.contains_key("steps")
+        && !columns.contains_key("minutes");
+    let steps_col = steps_only
+        .then(|| columns.get("steps").map(|&i| i as u64 + 1))
+        .flatten();
     let missing_error = |missing: &[&str]| {
         let looks_like_data = names
             .first()
@@ -1189,6 +1196,18 @@ fn read_records(
                     .and_then(|(h, _, _)| spec.mapping_target(h).map(|t| t.0))
                     .unwrap_or("weight"),
             )
+        } else if steps_only {
+            // A step counter's export (`Date,Steps`): steps alone give neither minutes nor
+            // energy. Turning steps into energy needs the stride (distance) and the pace or
+            // the time spent walking (a cadence gives the intensity only per minute walked),
+            // which a daily step total does not give; so it is not guessed.
+            "steps alone cannot be turned into activity minutes or energy: that needs the time \
+             spent walking (and the pace, or the stride length), which a daily step count does \
+             not give. Add an `activity` column (e.g. `walking`) and a `minutes` column with the \
+             minutes walked (the steps are then kept beside them), export the workouts with \
+             their durations instead, or leave steps to an external module \
+             (plugins/example-external summarises them)"
+                .to_string()
         } else {
             format!(
                 "name the columns in the first row (any order), or map the file's own names to ours in program.yaml: `input: {{ columns: {{ {}: {{ \"Their name\": {} }} }} }}`",
@@ -1210,7 +1229,7 @@ fn read_records(
                 .collect::<Vec<_>>()
                 .join(", ")
         ))
-        .at(header_line, None)
+        .at(header_line, steps_col)
         .expected(format!("columns {}", column_list(spec)))
         .found(format!("`{}`", written.join(&delim_text)))
         .hint(hint)
@@ -3772,6 +3791,120 @@ mod tests {
         assert!(parse_when("Tue Mar 01 2027", &opts).is_none());
         assert_eq!(day("2027.03.01", &opts), Some(("2027-03-01".into(), None)));
         assert!(parse_when("2027.13.01", &opts).is_none());
+    }
+
+    /// Daylight-saving days with `input.time_zone`. Expected local times from Python 3's
+    /// `zoneinfo` (IANA tzdata): Europe/Berlin changes on 2026-03-29 and 2026-10-25 at 01:00 UTC,
+    /// America/New_York on 2026-03-08 at 07:00 UTC and 2026-11-01 at 06:00 UTC.
+    /// The rule: a UTC time is converted with the offset in force at that instant (a fixed
+    /// winter or summer offset would put late-evening weigh-ins on the wrong day); a local time
+    /// written without an offset is never converted, so one that does not exist (02:30 on a
+    /// spring-forward day, a clock not yet changed) or exists twice (01:30 on a fall-back day)
+    /// stays on the day and at the time written; a time with its own offset stays on its day.
+    #[test]
+    fn daylight_saving_days_keep_each_weigh_in_on_its_local_day() {
+        let zone = |z: &str| CsvOptions {
+            time_zone: LocalZone::parse(z),
+            program_span: Some((
+                NaiveDate::from_ymd_opt(2026, 1, 1).unwrap(),
+                NaiveDate::from_ymd_opt(2026, 12, 31).unwrap(),
+            )),
+            ..Default::default()
+        };
+        let at = |s: &str, o: &CsvOptions| {
+            let w = parse_when(s, o).unwrap_or_else(|| panic!("{s} reads"));
+            (w.date.to_string(), w.time.map(|t| t.to_string()))
+        };
+        let some = |d: &str, t: &str| (d.to_string(), Some(t.to_string()));
+        let berlin = zone("Europe/Berlin");
+        for (written, day, time) in [
+            // Written local times, including one that does not exist and one that exists twice.
+            ("2026-03-29 02:30", "2026-03-29", "02:30:00"),
+            ("2026-03-29T02:30:00", "2026-03-29", "02:30:00"),
+            ("2026-10-25 02:30", "2026-10-25", "02:30:00"),
+            ("29.03.2026 02:30", "2026-03-29", "02:30:00"),
+            // UTC across the change.
+            ("2026-03-28T23:30:00Z", "2026-03-29", "00:30:00"),
+            ("2026-03-29T00:59:00Z", "2026-03-29", "01:59:00"),
+            ("2026-03-29T01:00:00Z", "2026-03-29", "03:00:00"),
+            ("2026-03-29T22:30:00Z", "2026-03-30", "00:30:00"),
+            ("2026-10-24T22:30:00Z", "2026-10-25", "00:30:00"),
+            ("2026-10-25T00:30:00Z", "2026-10-25", "02:30:00"),
+            ("2026-10-25T01:30:00Z", "2026-10-25", "02:30:00"),
+            ("2026-10-25T22:30:00Z", "2026-10-25", "23:30:00"),
+            ("2026-03-29 22:30:00 UTC", "2026-03-30", "00:30:00"),
+            // Offsets across the change (the device's own): the day as written.
+            ("2026-03-29T02:30:00+01:00", "2026-03-29", "02:30:00"),
+            ("2026-03-29T00:30:00+02:00", "2026-03-29", "00:30:00"),
+            ("2026-10-25T02:30:00+02:00", "2026-10-25", "02:30:00"),
+            ("2026-10-25T02:30:00+01:00", "2026-10-25", "02:30:00"),
+            ("2026-10-25T23:30:00+02:00", "2026-10-25", "23:30:00"),
+        ] {
+            assert_eq!(at(written, &berlin), some(day, time), "Berlin {written}");
+        }
+        let ny = zone("America/New_York");
+        for (written, day, time) in [
+            ("2026-03-08 02:30", "2026-03-08", "02:30:00"),
+            ("2026-11-01 01:30", "2026-11-01", "01:30:00"),
+            ("2026-03-08T04:30:00Z", "2026-03-07", "23:30:00"),
+            ("2026-03-08T07:30:00Z", "2026-03-08", "03:30:00"),
+            ("2026-03-09T04:30:00Z", "2026-03-09", "00:30:00"),
+            ("2026-11-01T05:30:00Z", "2026-11-01", "01:30:00"),
+            ("2026-11-01T06:30:00Z", "2026-11-01", "01:30:00"),
+            ("2026-11-02T04:30:00Z", "2026-11-01", "23:30:00"),
+            ("2026-11-01T01:30:00-04:00", "2026-11-01", "01:30:00"),
+            ("2026-11-01T01:30:00-05:00", "2026-11-01", "01:30:00"),
+        ] {
+            assert_eq!(at(written, &ny), some(day, time), "New York {written}");
+        }
+        // `Date (UTC)` headers and Unix seconds are UTC too: converted the same way.
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        // 1774823400 = 2026-03-29 22:30 UTC.
+        let text = "Date (UTC),weight,unit\n2026-03-29 22:30,70,kg\n2026-03-29 21:30,70,kg\n2026-10-25 22:30,70,kg\n";
+        let t = read_table(text, &SPEC, &berlin, &ctx, &mut d).unwrap();
+        let days: Vec<(String, Option<String>)> = t
+            .rows
+            .iter()
+            .map(|row| {
+                let c = Cells {
+                    table: &t,
+                    row,
+                    ctx: &ctx,
+                    opts: &berlin,
+                };
+                let w = c.when("date", &mut d).unwrap();
+                (w.date.to_string(), w.time.map(|x| x.to_string()))
+            })
+            .collect();
+        assert_eq!(
+            days,
+            [
+                some("2026-03-30", "00:30:00"),
+                some("2026-03-29", "23:30:00"),
+                some("2026-10-25", "23:30:00"),
+            ]
+        );
+        let t = read_table(
+            "date,weight,unit\n1774823400,70,kg\n",
+            &SPEC,
+            &berlin,
+            &ctx,
+            &mut d,
+        )
+        .unwrap();
+        let c = Cells {
+            table: &t,
+            row: &t.rows[0],
+            ctx: &ctx,
+            opts: &berlin,
+        };
+        let w = c.when("date", &mut d).unwrap();
+        assert_eq!(
+            (w.date.to_string(), w.time.map(|x| x.to_string())),
+            some("2026-03-30", "00:30:00")
+        );
+        assert!(d.is_empty(), "{d:?}");
     }
 
     #[test]

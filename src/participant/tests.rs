@@ -548,3 +548,32 @@ fn a_group_key_in_other_case_or_spacing_is_read_as_report_group_by_names_it() {
     );
     assert!(!lp.data.expect("usable").profile.groups.contains_key("site"));
 }
+
+/// A participant folder hidden by its name (`.SG-050`: a typo, a sync tool's rename) was skipped
+/// without a word, as `.git` is; one that holds a profile.yaml is now named in a warning (and
+/// still not read). Other hidden entries stay silent.
+#[test]
+fn a_hidden_folder_with_a_profile_is_named() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    participant(tmp.path(), ".P2", &[("profile.yaml", PROFILE.as_bytes())]);
+    participant(tmp.path(), ".git", &[("config", b"x")]);
+    participant(tmp.path(), "..x", &[("profile.yaml", PROFILE.as_bytes())]);
+    let (dirs, diags) = discover(&p);
+    assert_eq!(
+        dirs.iter().map(|d| d.id.as_str()).collect::<Vec<_>>(),
+        vec!["P1"]
+    );
+    let warned: Vec<&str> = diags
+        .iter()
+        .filter(|d| d.severity == Severity::Warning && d.message.contains("hidden folder"))
+        .map(|d| d.file.as_str())
+        .collect();
+    assert_eq!(
+        warned,
+        vec!["participants/..x", "participants/.P2"],
+        "{diags:#?}"
+    );
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+}

@@ -143,6 +143,11 @@ const MASS_UNITS: &[&str] = &[
     "st",
     "stone",
     "stones",
+    // Grams, as some scales and health apps export body weight (`weight_g`, `Weight (g)`):
+    // converted to kilograms where the header, a `unit` cell or the cell itself says so.
+    "g",
+    "gram",
+    "grams",
 ];
 
 /// `weights.csv`.

@@ -728,6 +728,13 @@ pub fn key_line(text: &str, path: &str) -> Option<u64> {
     found_line
 }
 
+/// [`key_position`] in the program's `program.yaml` as it is now on disk, for a message about
+/// a value found wrong after loading, such as a `report.out` a run may not write.
+pub fn key_position_in_file(root: &Path, path: &str) -> Option<(u64, Option<u64>)> {
+    let text = std::fs::read_to_string(root.join(PROGRAM_FILE)).ok()?;
+    key_position(&text, path)
+}
+
 /// 1-based line of each `modules:` entry, by index, when the entries can be found by scanning
 /// (block list: one `- ` line each; flow list on one line: that line for all). Empty otherwise.
 pub fn module_lines(text: &str, count: usize) -> BTreeMap<usize, u64> {

@@ -59,6 +59,9 @@ pub enum Blame {
     CommandLine,
     /// The program folder (`program.yaml`, its `report.out`, a missing `participants/`).
     Program,
+    /// The machine the run is started on: a folder it needs besides the output (the temporary
+    /// folder external modules run in) cannot be used (exit code 6, as for the output folder).
+    Environment,
 }
 
 /// A run that could not complete.

@@ -137,13 +137,21 @@ impl RunPlan {
     /// folder and who named it: the command line or program.yaml.
     pub fn begin_staging(&self) -> Result<Staging, RunError> {
         Staging::begin(&self.output_target(), self.access).map_err(|e| match e {
-            StagingError::Refused(m) => RunError::Refused {
+            StagingError::Refused(m) if self.out_named_by == "--out" => RunError::Refused {
                 message: m,
-                by: if self.out_named_by == "--out" {
-                    Blame::CommandLine
-                } else {
-                    Blame::Program
+                by: Blame::CommandLine,
+            },
+            // Named by program.yaml: say where (the file, line and column of `report.out`).
+            StagingError::Refused(m) => RunError::Refused {
+                message: match crate::program::load::key_position_in_file(
+                    &self.program.root,
+                    "report.out",
+                ) {
+                    Some((line, Some(col))) => format!("program.yaml:{line}:{col}: {m}"),
+                    Some((line, None)) => format!("program.yaml:{line}: {m}"),
+                    None => format!("program.yaml: {m}"),
                 },
+                by: Blame::Program,
             },
             other => other.into(),
         })
@@ -224,7 +232,15 @@ fn invalid(diagnostics: Vec<Diagnostic>) -> PlanError {
 /// Loads and checks the program and its modules: the same function `check` uses
 /// ([`crate::check::load_program_checked`]), so both refuse the same programs.
 fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
-    let (program, modules, warnings) = crate::check::load_program_checked(root).map_err(invalid)?;
+    use crate::check::LoadError;
+    let (program, modules, warnings) =
+        crate::check::load_program_checked(root).map_err(|e| match e {
+            LoadError::Program(d) => invalid(d),
+            LoadError::WorkFolder(_, d) => RunError::Invalid {
+                by: Blame::Environment,
+                diagnostics: vec![*d],
+            },
+        })?;
     for w in &warnings {
         tracing::warn!("{w}");
     }

@@ -1181,3 +1181,53 @@ fn the_fingerprint_in_the_outputs_names_no_absolute_path() {
     let fp = build(&p).0.settings_fingerprint();
     assert!(fp.contains(&format!("[\"{EXAMPLE}\"]")), "{fp}");
 }
+
+/// A `TMPDIR` that cannot hold the modules' working folders (a folder that does not exist, as a
+/// crontab or container environment copied from another machine gives; a file) made every
+/// external module "fail its handshake" and blamed `program.yaml` (exit 3). It is the temporary
+/// folder that is wrong: `check`, `run` and `modules` name it, exit 6 (a folder the run needs
+/// cannot be used), and `check` still checks the participants. A working `TMPDIR` runs.
+#[test]
+fn an_unusable_tmpdir_is_named_and_not_blamed_on_program_yaml() {
+    let t = fixture_with_example();
+    let missing = t.dir.join("no-such-tmp");
+    let file = t.dir.join("program.yaml");
+    for bad in [&missing, &file] {
+        let bad = bad.to_string_lossy();
+        let env = [("TMPDIR", &*bad)];
+        for args in [&MARCH[..], &["check", "{dir}", "--as-of", "2027-04-05"][..]] {
+            let out = t.run_env(args, &env);
+            assert_eq!(
+                out.code,
+                cohortpress::exit_code::OUTPUT_FAILED,
+                "{args:?} TMPDIR={bad}: {}{}",
+                out.stdout,
+                out.stderr
+            );
+            let said = format!("{}{}", out.stdout, out.stderr);
+            assert!(
+                said.contains("the temporary folder named by TMPDIR cannot be used")
+                    && said.contains(&format!("TMPDIR={bad}")),
+                "{said}"
+            );
+            assert!(!said.contains("failed its handshake"), "{said}");
+            assert!(!said.contains("error: program.yaml"), "{said}");
+        }
+        let out = t.run_env(&["modules", "{dir}"], &env);
+        assert_eq!(
+            out.code,
+            cohortpress::exit_code::OUTPUT_FAILED,
+            "{}",
+            out.stderr
+        );
+        assert!(out.stderr.contains("TMPDIR"), "{}", out.stderr);
+    }
+    assert!(
+        !t.dir.join("reports").exists(),
+        "a refused run wrote nothing"
+    );
+    let tmp = t.dir.parent().unwrap().join("tmp");
+    std::fs::create_dir(&tmp).unwrap();
+    let out = t.run_env(&MARCH, &[("TMPDIR", &*tmp.to_string_lossy())]);
+    assert!(out.code <= 1, "{}", out.stderr);
+}

@@ -99,14 +99,29 @@ impl ProgramTest {
         self.exec(args)
     }
 
+    /// [`ProgramTest::run`] with variables `env` added to the clean environment.
+    pub fn run_env(&self, args: &[&str], env: &[(&str, &str)]) -> Outcome {
+        self.exec_env(
+            args.iter()
+                .map(|a| a.replace("{dir}", &self.dir.to_string_lossy()).into())
+                .collect(),
+            env,
+        )
+    }
+
     /// Runs the binary with `args` in the program folder, with a clean environment.
     fn exec(&self, args: Vec<std::ffi::OsString>) -> Outcome {
+        self.exec_env(args, &[])
+    }
+
+    fn exec_env(&self, args: Vec<std::ffi::OsString>, env: &[(&str, &str)]) -> Outcome {
         let out = Command::new(env!("CARGO_BIN_EXE_cohortpress"))
             .args(&args)
             .current_dir(&self.dir)
             .env_clear()
             .env("PATH", std::env::var("PATH").unwrap_or_default())
             .env("HOME", self.dir.parent().unwrap())
+            .envs(env.iter().copied())
             .output()
             .expect("run cohortpress");
         Outcome {

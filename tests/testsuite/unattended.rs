@@ -682,6 +682,11 @@ fn check_and_run_agree_on_a_report_out_that_may_not_be_written() {
             c.stdout.contains("report.out") || c.stderr.contains("report.out"),
             "{c:?}"
         );
+        // Both name the file, line and column of `report.out`'s value (after `  out: `).
+        let line = y.lines().position(|l| l.starts_with("  out: ")).unwrap() + 1;
+        let at = format!("program.yaml:{line}:8:");
+        assert!(c.stdout.contains(&at), "report.out {out}: {at} in {c:?}");
+        assert!(r.stderr.contains(&at), "report.out {out}: {at} in {r:?}");
     }
 }
 

@@ -2085,3 +2085,69 @@ fn a_lab_value_that_is_not_a_number_is_quoted_as_written() {
     );
     assert_eq!(diags[0].found.as_deref(), Some("`abc`"));
 }
+
+/// A scale or health app that exports body weight in grams (`weight_g`, `Weight (g)`, a `unit`
+/// column of `g`, `72500 g` in the cells) had the file refused ("missing required columns") or
+/// every row dropped ("unknown weight unit"). Where the file states grams it is read, converted
+/// (1 kg = 1000 g); a number is never taken for grams because of its size.
+#[test]
+fn weights_in_grams_are_read_where_the_file_says_grams() {
+    for text in [
+        "date,weight_g\n2026-04-01,72500\n2026-04-02,72350\n",
+        "Date,Weight (g)\n2026-04-01,72500\n2026-04-02,72350\n",
+        "date,weight,unit\n2026-04-01,72500,g\n2026-04-02,72350,grams\n",
+        "date,weight\n2026-04-01,72500 g\n2026-04-02,72350g\n",
+    ] {
+        let (w, diags) = weights(text);
+        assert!(diags.is_empty(), "{text}: {diags:#?}");
+        assert_eq!(w.len(), 2, "{text}");
+        assert!((w[0].weight.kg() - 72.5).abs() < 1e-12, "{text}: {w:?}");
+        assert!((w[1].weight.kg() - 72.35).abs() < 1e-12, "{text}: {w:?}");
+    }
+    // Grams only where stated: 72500 under `kg` is no weight (dropped, named), not 72.5 kg.
+    let (w, diags) = read(
+        "date,weight,unit\n2026-04-01,72500,kg\n2026-04-02,72.4,kg\n",
+        &window(),
+    );
+    let w = w.expect("usable");
+    assert_eq!(w.len(), 1);
+    assert!((w[0].weight.kg() - 72.4).abs() < 1e-12);
+    assert!(
+        diags
+            .iter()
+            .any(|x| x.message.contains("implausible weight") && x.line == Some(2)),
+        "{diags:#?}"
+    );
+    // A cell in grams under a header in kilograms disagrees: the row is dropped, at its cell.
+    let (w, diags) = read(
+        "date,weight_kg\n2026-04-01,72500 g\n2026-04-02,72.4\n2026-04-03,72.3\n",
+        &window(),
+    );
+    assert_eq!(w.expect("usable").len(), 2, "{diags:#?}");
+    assert!(
+        diags
+            .iter()
+            .any(|x| x.line == Some(2) && x.column == Some(2)),
+        "{diags:#?}"
+    );
+}
+
+/// A step counter's export (`date,steps`) cannot be used as activity: steps alone give neither
+/// the minutes nor the energy (that needs the time walked and the pace or stride). The file is
+/// refused at the `steps` column, and the hint says why and what to provide instead.
+#[test]
+fn a_steps_only_activity_file_says_why_and_what_to_add() {
+    let (v, diags) = activity_or_error("date,steps\n2026-04-02,8000\n2026-04-03,9500\n");
+    assert!(v.is_none());
+    let e = diags
+        .iter()
+        .find(|x| x.severity == Severity::Error)
+        .expect("an error");
+    assert_eq!((e.line, e.column), (Some(1), Some(2)), "{e:#?}");
+    let hint = e.hint.as_deref().unwrap_or_default();
+    assert!(
+        hint.contains("steps alone cannot be turned into activity minutes or energy")
+            && hint.contains("`minutes` column"),
+        "{hint}"
+    );
+}
