@@ -1432,7 +1432,7 @@ fn push_intake_flags(
         Some(IntakeEvidence::LogAndTrend(t, i)) => format!(
             "Logged intake averaged about {:.0} kcal a day over {} logged days and was below \
              {floor:.0} kcal a day, {unsupervised}, on {} of them; the weight trend does not \
-             rule it out (it implies {}). If the log is complete, consider discussing it \
+             rule it out: it implies {}. If the log is complete, consider discussing it \
              with a licensed clinician.",
             t.mean,
             t.days,
