@@ -1398,14 +1398,27 @@ fn push_intake_flags(
     let very_low = ctx.setting_f64("very_low_intake", 800.0);
     let days = intake.len();
     let mean = intake.iter().sum::<f64>() / days.max(1) as f64;
+    let implied = implied_intake(ctx);
     // Very low subsumes low: one flag, the more serious one.
     if days >= MIN_INTAKE_DAYS && mean < very_low {
+        // Raised on the log alone; a trend that puts the whole interval above the floor is
+        // named beside it, so the clinician sees that the log may be incomplete.
+        let trend = implied
+            .filter(|i| i.lower >= floor)
+            .map(|i| {
+                format!(
+                    " The weight trend implies {}, above {floor:.0} kcal a day: the log may be \
+                     incomplete.",
+                    implied_words(i)
+                )
+            })
+            .unwrap_or_default();
         output.push_flag(
             OutcomesFlag::VeryLowIntake.as_str(),
             FlagSeverity::Clinical,
             format!(
                 "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                 days, below {very_low:.0} kcal a day. Eating this little is normally \
+                 days, below {very_low:.0} kcal a day.{trend} Eating this little is normally \
                  done only under medical supervision; please review it with a licensed \
                  clinician."
             ),
@@ -1421,7 +1434,7 @@ fn push_intake_flags(
     let unsupervised = "a level usually not advised without supervision";
     // Clinical like the very-low flag: intakes below the usual floors are for a licensed
     // clinician to review (the report's cautions say so).
-    let message = match test.judge(&intake, implied_intake(ctx)) {
+    let message = match test.judge(&intake, implied) {
         None => return false,
         Some(IntakeEvidence::Trend(i)) => format!(
             "Over the last weeks of the period the weight trend implies an intake of {}: even the top of \

@@ -636,6 +636,17 @@ fn low_intake_needs_the_weight_trend_not_to_contradict_the_log() {
     );
     assert_eq!(f.len(), 1, "{f:?}");
     assert_eq!(f[0].0, "very_low_intake");
+    // (which names the trend beside it, so the clinician sees the log may be incomplete).
+    assert!(
+        f[0].1.contains(
+            "The weight trend implies about 2062 kcal a day (95 % interval 1537 to 2587), \
+             above 1500 kcal a day: the log may be incomplete."
+        ),
+        "{}",
+        f[0].1
+    );
+    let f = flags(None, &with_intake(no_weights.clone(), &six));
+    assert!(!f[0].1.contains("weight trend"), "{}", f[0].1);
     // The trend alone, its upper bound below the floor: raised without a log.
     let f = flags(Some(energy_output(1200.0, 1000.0, 1400.0)), &man);
     assert_eq!(f.len(), 1, "{f:?}");
