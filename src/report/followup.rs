@@ -82,7 +82,9 @@ pub fn reason(code: &str) -> &'static str {
         "forecast_underweight" => {
             "At the intake the weight trend implies, weight would fall into the underweight range, or further within it, before the forecast's end"
         }
-        "low_intake" => "Logged intake below the usual floor for eating less without supervision",
+        "low_intake" => {
+            "Intake below the usual floor for eating less without supervision, by the food log with the weight trend not ruling it out, by the weight trend alone, or by the food log when there are no weigh-ins to check it"
+        }
         "below_resting_intake" => {
             "Intake below resting energy expenditure for weeks, on the weight trend's evidence (alone, or agreeing with the food log)"
         }

@@ -9,7 +9,7 @@
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
 //! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
-//! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else |
+//! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else; no amount while the last four weeks cannot tell whether it goes on, only more weigh-ins |
 //! | 3a | the same at a BMI below `low_bmi_losing_below` (20; from age 70 the higher `low_bmi_losing_below_70_plus`, 22) | `maintain` | that a rise at that BMI is no cause for concern; nothing to stop it |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least` (from age 70 below `loss_bmi_at_least_70_plus`, default 30), or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
@@ -833,7 +833,19 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     let lower_intake = f
         .implied
         .map(|i| careful_intake(i.lower.unwrap_or(i.value), f.logged));
-    if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
+    // An amount rests on the last four weeks' direction: when the rise is confirmed only by
+    // level and those weeks cannot say whether it goes on (too few weigh-ins, or a slope too
+    // uncertain), the balance that would size a change is no evidence of a surplus now, and
+    // the report names what would tell instead (sample program, September, SG-013: 1.6
+    // weigh-ins a week, "too few recent weigh-ins to tell whether it is still rising", yet
+    // "eat about 400 kcal a day less", exactly to the 1,200 kcal floor by the food log).
+    let direction_known = state.status == TrendStatus::Regaining || state.still_rising;
+    if !direction_known {
+        g.paragraphs.push(format!(
+            "Until it is clear whether your weight is still going up, this report suggests no change to how much you eat or how active you are. Weighing in about {} times a week, at the same time of day, for the next few weeks will show whether it has steadied; going back to the habits that worked for you earlier is a good first step meanwhile.",
+            fmt::fixed(f.weigh_ins_target, 0)
+        ));
+    } else if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
         g.options_intro =
             "By the energy-balance model, either of these would about stop the rise:".into();
         g.options.push(OptionView {
@@ -884,12 +896,6 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         };
         g.paragraphs.push(format!(
             "{why}, so this report suggests no particular amount. Going back to the habits that worked for you earlier — regular weigh-ins, a food log, your usual activity — is a good first step."
-        ));
-    }
-    if state.status == TrendStatus::Insufficient {
-        g.closing.push(format!(
-            "Weighing in about {} times a week, at the same time of day, lets next month's report show whether your weight has steadied.",
-            fmt::fixed(f.weigh_ins_target, 0)
         ));
     }
     if loss_is_goal(state, t) {
@@ -1732,13 +1738,32 @@ mod tests {
         );
         assert!(text.contains("too few recent weigh-ins"), "{text}");
         assert!(!text.contains("over the last four weeks"), "{text}");
-        // The amount that holds the weight is still checked at the lower bound.
+        // The last four weeks cannot say whether the rise goes on, so no amount is sized from
+        // them (sample program, September, SG-013: "eat about 400 kcal a day less", exactly to
+        // the floor by the food log, beside "too few recent weigh-ins"); the sparse weigher is
+        // asked for the weigh-ins that would tell.
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        assert!(g.options_intro.is_empty() && g.options_note.is_empty());
+        assert!(!text.contains(" kcal"), "{text}");
+        assert!(
+            text.contains("suggests no change to how much you eat or how active you are")
+                && text.contains("Weighing in about 3 times a week"),
+            "{text}"
+        );
+        // So with a slope too uncertain to call.
+        let mut unclear = st(Unclear);
+        unclear.regained = true;
+        let g = compose(decide(&unclear, &t), &unclear, &t, &f);
+        assert_eq!(g.phase, "regain");
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        // A rise the last four weeks confirm (their slope interval above zero) is still met
+        // with the amount that holds the weight, checked at the lower bound.
+        unclear.still_rising = true;
+        let g = compose(decide(&unclear, &t), &unclear, &t, &f);
         assert_eq!(g.options[0].intake_cut_kcal, 450.0);
-        // And the sparse weigher is asked for the weigh-ins that would show the rise stopping.
-        assert!(g.closing[0].contains("times a week"), "{:?}", g.closing);
         // Without an energy balance no amount is offered, and the rise is not called small.
         f.balance = None;
-        let g = compose(Phase::Regain, &s, &t, &f);
+        let g = compose(Phase::Regain, &unclear, &t, &f);
         assert!(g.options.is_empty());
         let text = g.paragraphs.join(" ");
         assert!(!text.contains("rise is small"), "{text}");

@@ -386,7 +386,7 @@ fn followup_list_has_no_axe_violations_and_no_table_scrolls_sideways() {
         "run",
         "{dir}",
         "--as-of",
-        "2026-12-01",
+        "2026-07-01",
         "--formats",
         "html",
         "--out",
@@ -397,7 +397,7 @@ fn followup_list_has_no_axe_violations_and_no_table_scrolls_sideways() {
         "the sample's planted folder without a profile: {r:?}"
     );
     let html = std::fs::read_to_string(out.join("followup/followup.html")).unwrap();
-    // SG-010 is flagged in the sample's September, so the list is not empty.
+    // SG-010 is flagged (low intake) in the sample's June, so the list is not empty.
     assert!(html.contains(">SG-010</td>"), "{html}");
     for width in WIDTHS {
         let found = axe_check(&tools, &html, width);
@@ -551,7 +551,7 @@ fn a_long_unbroken_name_wraps_in_the_followup_list_and_the_report() {
         format!("{text}\nfollowup:\n  recipient: \"Nurse\"\n"),
     )
     .unwrap();
-    // SG-010 is flagged in the sample's September, so the name is on the list.
+    // SG-010 is flagged (low intake) in the sample's June, so the name is on the list, once.
     let name: String = "Brackenthwaiteovna".repeat(6).chars().take(100).collect();
     let profile = t.dir.join("participants/SG-010/profile.yaml");
     let p = std::fs::read_to_string(&profile).unwrap();
@@ -571,7 +571,7 @@ fn a_long_unbroken_name_wraps_in_the_followup_list_and_the_report() {
         "run",
         "{dir}",
         "--as-of",
-        "2026-12-01",
+        "2026-07-01",
         "--formats",
         "html",
         "--out",

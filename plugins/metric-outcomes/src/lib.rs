@@ -38,10 +38,23 @@
 //!   ending in the reporting period, the daily trend level fell faster than `fast_loss_kg_per_week` (1 kg/week;
 //!   "about 1 kg (2 lb) a week sustained", NIH/NHLBI 1998, from memory). Days between trend
 //!   points are filled by linear interpolation. The message names the most recent such span.
-//! * `very_low_intake` (clinical) / `low_intake` (clinical): the mean of the logged intake days in
-//!   the reporting period (on or after enrolment; at least [`MIN_INTAKE_DAYS`] days) is below
-//!   `very_low_intake` (800 kcal/d, VLCD, NIH/NHLBI 1998, from memory) or below the sex-specific
-//!   floor (1200 women / 1500 men kcal/d, common practice). Only the more serious one is raised.
+//! * `very_low_intake` (clinical): the mean of the logged intake days in the reporting period
+//!   (on or after enrolment; at least [`MIN_INTAKE_DAYS`] days) is below `very_low_intake` (800
+//!   kcal/d, VLCD, NIH/NHLBI 1998, from memory), on the food log alone.
+//! * `low_intake` (clinical), when `very_low_intake` is not raised: intake below the
+//!   sex-specific floor (1200 women / 1500 men kcal/d, common practice), by the same test as
+//!   `below_resting_intake` (one function, `IntakeTest`), with the floor for resting energy and
+//!   the reporting period's logged days. Raised when (a) the upper 95 % bound of the intake the
+//!   weight trend implies (`energy` module) is below the floor, log or not; or (b) logged intake
+//!   is below the floor on more than half of at least [`MIN_INTAKE_DAYS`] logged days and the
+//!   trend does not clearly contradict it: the implied intake's *lower* 95 % bound is below the
+//!   floor too; or (c) there is no implied intake to check the log against (no weigh-ins, or
+//!   no energy module) and the log is below the floor as in (b), on the safe side. A log that
+//!   the trend's whole interval puts above the floor is under-reporting (see
+//!   `below_resting_intake`), not a low intake. The agreement asked of the trend is looser than
+//!   for `below_resting_intake` (its lower bound, not its central value): the floor is a fixed
+//!   line well above resting energy for most adults, where a log below it is less often mere
+//!   under-reporting, and missing a low intake costs more than a review (program choice).
 //! * `fast_gain` (clinical): the same test as `fast_loss` on a rise: faster than
 //!   `fast_loss_kg_per_week` over `fast_loss_span_days` in a row, ending in the period (a change
 //!   of scale or clothing, a mistyped weigh-in, or fluid, more often than tissue).
@@ -733,7 +746,7 @@ impl MetricModule for OutcomesModule {
                     OutcomesFlag::LowIntake.as_str(),
                     "flag",
                     "",
-                    "mean logged intake below the floor",
+                    "intake below the floor: the upper 95 % bound of the intake the weight trend implies is below it, or the food log is below it on most of at least 4 logged days and the implied intake's lower 95 % bound is too, or the log is without weigh-ins to check it (energy module)",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::VeryLowIntake.as_str(),
@@ -1236,8 +1249,136 @@ fn push_fast_gain_flag(
     );
 }
 
+/// The intake the `energy` module implies from the weight trend over its window (the last 28
+/// days of the period by default), with its 95 % interval; `None` when the module did not run
+/// before this one or gave no implied intake (too few weigh-ins, or withheld as below a
+/// very-low-calorie diet's: its own flag then speaks).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Implied {
+    central: f64,
+    lower: f64,
+    upper: f64,
+}
+
+fn implied_intake(ctx: &ModuleContext) -> Option<Implied> {
+    let energy = ctx.earlier.get(ENERGY_MODULE)?;
+    let energy = EnergyView::from_output(energy)
+        .inspect_err(|e| debug_assert!(false, "{e}"))
+        .ok()?;
+    let i = energy.implied_intake_kcal_per_day;
+    let (central, upper) = (i.value?, i.upper?);
+    // The lower of the interval's bound and the module's own scalar (the guidance reads the
+    // same): the bound that lets the trend agree with a low log most readily.
+    let lower = match (i.lower, energy.implied_intake_lower_kcal_per_day) {
+        (Some(a), Some(b)) => a.min(b),
+        (a, b) => a.or(b).unwrap_or(0.0),
+    };
+    [central, lower, upper]
+        .iter()
+        .all(|x| x.is_finite())
+        .then_some(Implied {
+            central,
+            lower,
+            upper,
+        })
+}
+
+/// Which point of the implied intake's interval must lie below the threshold for the weight
+/// trend to agree with a low food log.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Agreement {
+    /// The central estimate: the trend must itself say "below" (`below_resting_intake`).
+    Central,
+    /// The lower 95 % bound: the trend must not clearly say "above" (`low_intake`).
+    Lower,
+}
+
+/// One test of intake against a threshold, on the food log and the weight trend together: the
+/// rule behind both `low_intake` and `below_resting_intake` (see the module docs).
+struct IntakeTest {
+    /// kcal/d.
+    threshold: f64,
+    /// Fewest logged days for the log to count at all.
+    min_logged_days: usize,
+    /// How far the trend must agree with a low log.
+    agreement: Agreement,
+    /// Whether a low log counts on its own when there is no implied intake to check it
+    /// against (no weigh-ins, no energy module).
+    log_alone: bool,
+}
+
+/// The logged days a test read: how many, how many below its threshold, and their mean.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct LogTally {
+    days: usize,
+    below: usize,
+    mean: f64,
+}
+
+/// What raised an intake flag.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum IntakeEvidence {
+    /// The implied intake's upper 95 % bound is below the threshold: the trend alone shows it.
+    Trend(Implied),
+    /// The log is below the threshold on most logged days and the trend agrees.
+    LogAndTrend(LogTally, Implied),
+    /// The log is below it on most logged days and there is no trend to check it against.
+    LogAlone(LogTally),
+}
+
+impl IntakeTest {
+    /// Whether intake was below the threshold, and on what evidence. A log is "below" when
+    /// more than half of at least `min_logged_days` logged days are below the threshold.
+    fn judge(&self, logged: &[f64], implied: Option<Implied>) -> Option<IntakeEvidence> {
+        let days = logged.len();
+        let below = logged.iter().filter(|k| **k < self.threshold).count();
+        let tally = LogTally {
+            days,
+            below,
+            mean: if days > 0 {
+                logged.iter().sum::<f64>() / days as f64
+            } else {
+                f64::NAN
+            },
+        };
+        let log_low = days >= self.min_logged_days && 2 * below > days;
+        match implied {
+            Some(i) if i.upper < self.threshold => Some(IntakeEvidence::Trend(i)),
+            Some(i) => {
+                let point = match self.agreement {
+                    Agreement::Central => i.central,
+                    Agreement::Lower => i.lower,
+                };
+                (log_low && point < self.threshold).then_some(IntakeEvidence::LogAndTrend(tally, i))
+            }
+            None => (log_low && self.log_alone).then_some(IntakeEvidence::LogAlone(tally)),
+        }
+    }
+}
+
+/// "about 1100 kcal a day (95 % interval 900 to 1300)".
+fn implied_words(i: Implied) -> String {
+    format!(
+        "about {:.0} kcal a day (95 % interval {:.0} to {:.0})",
+        i.central, i.lower, i.upper
+    )
+}
+
 /// The `very_low_intake` / `low_intake` flags (only the more serious one); returns whether one
 /// was raised.
+///
+/// `very_low_intake` reads the food log alone: a mean below a very-low-calorie diet's is put
+/// before a clinician whatever the trend says. `low_intake` is the shared [`IntakeTest`] at
+/// the sex-specific floor: logged intake below the floor on most of at least
+/// [`MIN_INTAKE_DAYS`] logged days in the period, unless the weight trend clearly contradicts
+/// it (the implied intake's whole 95 % interval at or above the floor), or the implied
+/// intake's upper bound below the floor with or without a log; with no implied intake at all
+/// (no weigh-ins) the log alone raises it, on the safe side. Food logs leave out 10–45 % of
+/// intake (Trabulsi & Schoeller 2001, Am J Physiol Endocrinol Metab 281:E891, from memory): a
+/// log that the trend shows to be well short of what was eaten is under-reporting, not a low
+/// intake (sample program, September: a man at BMI 23.5 with a steady weight logged 1,476
+/// kcal/d over 8 days while his trend implied about 2,060, 95 % 1,537 to 2,587, and was sent
+/// to the clinician).
 fn push_intake_flags(
     output: &mut ModuleOutput,
     ctx: &ModuleContext,
@@ -1250,49 +1391,86 @@ fn push_intake_flags(
         .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
         .map(|i| i.kcal)
         .collect();
-    if intake.len() < MIN_INTAKE_DAYS {
-        return false;
-    }
-    let mean = intake.iter().sum::<f64>() / intake.len() as f64;
     let floor = match profile.sex {
         Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
         Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
     };
     let very_low = ctx.setting_f64("very_low_intake", 800.0);
     let days = intake.len();
+    let mean = intake.iter().sum::<f64>() / days.max(1) as f64;
+    let implied = implied_intake(ctx);
     // Very low subsumes low: one flag, the more serious one.
-    if mean < very_low {
+    if days >= MIN_INTAKE_DAYS && mean < very_low {
+        // Raised on the log alone; a trend that puts the whole interval above the floor is
+        // named beside it, so the clinician sees that the log may be incomplete.
+        let trend = implied
+            .filter(|i| i.lower >= floor)
+            .map(|i| {
+                format!(
+                    " The weight trend implies {}, above {floor:.0} kcal a day: the log may be \
+                     incomplete.",
+                    implied_words(i)
+                )
+            })
+            .unwrap_or_default();
         output.push_flag(
             OutcomesFlag::VeryLowIntake.as_str(),
             FlagSeverity::Clinical,
             format!(
                 "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                 days, below {very_low:.0} kcal a day. Eating this little is normally \
+                 days, below {very_low:.0} kcal a day.{trend} Eating this little is normally \
                  done only under medical supervision; please review it with a licensed \
                  clinician."
             ),
         );
-        true
-    } else if mean < floor {
-        // Clinical like the very-low flag: intakes below the usual floors are for a
-        // licensed clinician to review (the report's cautions say so).
-        output.push_flag(
-            OutcomesFlag::LowIntake.as_str(),
-            FlagSeverity::Clinical,
-            format!(
-                "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                 days, below {floor:.0} kcal a day, a level usually not advised without \
-                 supervision. If the log is complete, consider discussing it with a \
-                 licensed clinician."
-            ),
-        );
-        true
-    } else {
-        false
+        return true;
     }
+    let test = IntakeTest {
+        threshold: floor,
+        min_logged_days: MIN_INTAKE_DAYS,
+        agreement: Agreement::Lower,
+        log_alone: true,
+    };
+    let unsupervised = "a level usually not advised without supervision";
+    // Clinical like the very-low flag: intakes below the usual floors are for a licensed
+    // clinician to review (the report's cautions say so).
+    let message = match test.judge(&intake, implied) {
+        None => return false,
+        Some(IntakeEvidence::Trend(i)) => format!(
+            "Over the last weeks of the period the weight trend implies an intake of {}: even the top of \
+             that interval is below {floor:.0} kcal a day, {unsupervised}. Please review the \
+             intake and the loss with a licensed clinician.",
+            implied_words(i)
+        ),
+        Some(IntakeEvidence::LogAndTrend(t, i)) => format!(
+            "Logged intake averaged about {:.0} kcal a day over {} logged days and was below \
+             {floor:.0} kcal a day, {unsupervised}, on {} of them; the weight trend does not \
+             rule it out: it implies {}. If the log is complete, consider discussing it \
+             with a licensed clinician.",
+            t.mean,
+            t.days,
+            t.below,
+            implied_words(i)
+        ),
+        Some(IntakeEvidence::LogAlone(t)) => format!(
+            "Logged intake averaged about {:.0} kcal a day over {} logged days and was below \
+             {floor:.0} kcal a day, {unsupervised}, on {} of them; there is no weight trend \
+             to check it against. If the log is complete, consider discussing it with a \
+             licensed clinician.",
+            t.mean, t.days, t.below
+        ),
+    };
+    output.push_flag(
+        OutcomesFlag::LowIntake.as_str(),
+        FlagSeverity::Clinical,
+        message,
+    );
+    true
 }
 
-/// The `below_resting_intake` flag (see the module docs); returns whether it was raised.
+/// The `below_resting_intake` flag (see the module docs): the shared [`IntakeTest`] at resting
+/// energy over the last four weeks, the log counting only when the trend's central estimate
+/// agrees and never on its own; returns whether it was raised.
 fn push_below_resting_flag(
     output: &mut ModuleOutput,
     ctx: &ModuleContext,
@@ -1301,15 +1479,7 @@ fn push_below_resting_flag(
 ) -> bool {
     let profile = &data.profile;
     let to = ctx.period.to;
-    let (Some(kg), Some(energy)) = (current_kg, ctx.earlier.get(ENERGY_MODULE)) else {
-        return false;
-    };
-    let Ok(energy) = EnergyView::from_output(energy).inspect_err(|e| debug_assert!(false, "{e}"))
-    else {
-        return false;
-    };
-    let implied = energy.implied_intake_kcal_per_day;
-    let (Some(central), Some(upper)) = (implied.value, implied.upper) else {
+    let Some(kg) = current_kg else {
         return false;
     };
     let height_cm = profile.height.cm();
@@ -1331,34 +1501,33 @@ fn push_below_resting_flag(
         .filter(|i| i.date >= from && i.date <= to)
         .map(|i| i.kcal)
         .collect();
-    let below = logged.iter().filter(|k| **k < rmr).count();
-    let interval = format!(
-        "about {central:.0} kcal a day (95 % interval {:.0} to {upper:.0})",
-        implied.lower.unwrap_or(0.0)
-    );
+    let test = IntakeTest {
+        threshold: rmr,
+        min_logged_days: BELOW_RESTING_MIN_LOGGED_DAYS,
+        agreement: Agreement::Central,
+        log_alone: false,
+    };
     let window = format!("{days} days from {from} to {to}");
-    let message = if upper < rmr {
-        format!(
-            "Over the last {window} the weight trend implies an intake of \
-             {interval}: even the top of that interval is below the resting energy expenditure \
-             estimated at the current weight (about {rmr:.0} kcal a day, Mifflin–St Jeor). \
-             Eating below resting energy for weeks is a warning sign; please review the intake \
-             and the loss with a licensed clinician."
-        )
-    } else if central < rmr
-        && logged.len() >= BELOW_RESTING_MIN_LOGGED_DAYS
-        && 2 * below > logged.len()
-    {
-        format!(
+    let message = match test.judge(&logged, implied_intake(ctx)) {
+        None | Some(IntakeEvidence::LogAlone(_)) => return false,
+        Some(IntakeEvidence::Trend(i)) => format!(
+            "Over the last {window} the weight trend implies an intake of {}: even the top \
+             of that interval is below the resting energy expenditure estimated at the \
+             current weight (about {rmr:.0} kcal a day, Mifflin–St Jeor). Eating below resting \
+             energy for weeks is a warning sign; please review the intake and the loss with a \
+             licensed clinician.",
+            implied_words(i)
+        ),
+        Some(IntakeEvidence::LogAndTrend(t, i)) => format!(
             "Over the last {window} logged intake was below the resting energy \
              expenditure estimated at the current weight (about {rmr:.0} kcal a day, \
-             Mifflin–St Jeor) on {below} of {} logged days, and the weight trend agrees: it \
-             implies an intake of {interval}. Eating below resting energy for weeks is a \
+             Mifflin–St Jeor) on {} of {} logged days, and the weight trend agrees: it \
+             implies an intake of {}. Eating below resting energy for weeks is a \
              warning sign; please review the intake and the loss with a licensed clinician.",
-            logged.len()
-        )
-    } else {
-        return false;
+            t.below,
+            t.days,
+            implied_words(i)
+        ),
     };
     output.push_flag(
         OutcomesFlag::BelowRestingIntake.as_str(),
@@ -1494,7 +1663,7 @@ fn push_medication_flag(
         causes.push("fast weight loss");
     }
     if low_intake {
-        causes.push("low logged intake");
+        causes.push("a low intake");
     } else if below_resting {
         causes.push("an intake below resting energy for weeks");
     } else if implied_low {

@@ -119,7 +119,7 @@ code_enum! {
         /// Loss faster than the set limit over the set span.
         FastLoss = "fast_loss" => "Fast loss",
         /// Logged intake below the floor.
-        LowIntake = "low_intake" => "Low logged intake",
+        LowIntake = "low_intake" => "Low intake",
         /// Logged intake very low.
         VeryLowIntake = "very_low_intake" => "Very low logged intake",
         /// BMI below 18.5.
