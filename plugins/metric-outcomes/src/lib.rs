@@ -46,7 +46,7 @@
 //!   `below_resting_intake` (one function, `IntakeTest`), with the floor for resting energy and
 //!   the reporting period's logged days. Raised when (a) the upper 95 % bound of the intake the
 //!   weight trend implies (`energy` module) is below the floor, log or not; or (b) logged intake
-//!   is below the floor on more than half of at least [`MIN_INTAKE_DAYS`] logged days and the
+//!   is below the floor on more than half of, or on average over, at least [`MIN_INTAKE_DAYS`] logged days and the
 //!   trend does not clearly contradict it: the implied intake's *lower* 95 % bound is below the
 //!   floor too; or (c) there is no implied intake to check the log against (no weigh-ins, or
 //!   no energy module) and the log is below the floor as in (b), on the safe side. A log that
@@ -85,7 +85,7 @@
 //!   flag is never raised). Raised when either
 //!   (a) the implied intake's *upper* 95 % bound is below resting energy: the trend alone
 //!   shows it, food log or not; or
-//!   (b) logged intake is below resting energy on more than half of at least
+//!   (b) logged intake is below resting energy on more than half of, or on average over, at least
 //!   [`BELOW_RESTING_MIN_LOGGED_DAYS`] logged days in the window *and* the implied intake's
 //!   central value is below it too (the weight trend agrees with the log).
 //!   Logged intake alone never raises it: food logs leave out 10–45 % of intake (Trabulsi &
@@ -746,7 +746,7 @@ impl MetricModule for OutcomesModule {
                     OutcomesFlag::LowIntake.as_str(),
                     "flag",
                     "",
-                    "intake below the floor: the upper 95 % bound of the intake the weight trend implies is below it, or the food log is below it on most of at least 4 logged days and the implied intake's lower 95 % bound is too, or the log is without weigh-ins to check it (energy module)",
+                    "intake below the floor: the upper 95 % bound of the intake the weight trend implies is below it, or the food log is below it on most of, or on average over, at least 4 logged days and the implied intake's lower 95 % bound is too, or the log is without weigh-ins to check it (energy module)",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::VeryLowIntake.as_str(),
@@ -794,7 +794,7 @@ impl MetricModule for OutcomesModule {
                     OutcomesFlag::BelowRestingIntake.as_str(),
                     "flag",
                     "",
-                    "intake below resting energy (Mifflin-St Jeor) over the last 28 days: the upper 95 % bound of the intake the weight trend implies is below it, or the food log is below it on most logged days and the implied intake agrees (energy module)",
+                    "intake below resting energy (Mifflin-St Jeor) over the last 28 days: the upper 95 % bound of the intake the weight trend implies is below it, or the food log is below it on most logged days or on average and the implied intake agrees (energy module)",
                 ),
             ],
             requires: vec![TREND_MODULE.into()],
@@ -1320,15 +1320,16 @@ struct LogTally {
 enum IntakeEvidence {
     /// The implied intake's upper 95 % bound is below the threshold: the trend alone shows it.
     Trend(Implied),
-    /// The log is below the threshold on most logged days and the trend agrees.
+    /// The log is below the threshold on most logged days or on average and the trend agrees.
     LogAndTrend(LogTally, Implied),
-    /// The log is below it on most logged days and there is no trend to check it against.
+    /// The log is below it on most logged days or on average and there is no trend to check it against.
     LogAlone(LogTally),
 }
 
 impl IntakeTest {
     /// Whether intake was below the threshold, and on what evidence. A log is "below" when
-    /// more than half of at least `min_logged_days` logged days are below the threshold.
+    /// more than half of at least `min_logged_days` logged days, or their mean, are below the
+    /// threshold.
     fn judge(&self, logged: &[f64], implied: Option<Implied>) -> Option<IntakeEvidence> {
         let days = logged.len();
         let below = logged.iter().filter(|k| **k < self.threshold).count();
@@ -1341,7 +1342,10 @@ impl IntakeTest {
                 f64::NAN
             },
         };
-        let log_low = days >= self.min_logged_days && 2 * below > days;
+        // Below on most days, or on average: a few very low days pull the mean under the
+        // threshold while most days sit just above it, and the mean is what the body meets.
+        let log_low =
+            days >= self.min_logged_days && (2 * below > days || tally.mean < self.threshold);
         match implied {
             Some(i) if i.upper < self.threshold => Some(IntakeEvidence::Trend(i)),
             Some(i) => {
@@ -1369,7 +1373,7 @@ fn implied_words(i: Implied) -> String {
 ///
 /// `very_low_intake` reads the food log alone: a mean below a very-low-calorie diet's is put
 /// before a clinician whatever the trend says. `low_intake` is the shared [`IntakeTest`] at
-/// the sex-specific floor: logged intake below the floor on most of at least
+/// the sex-specific floor: logged intake below the floor on most of, or on average over, at least
 /// [`MIN_INTAKE_DAYS`] logged days in the period, unless the weight trend clearly contradicts
 /// it (the implied intake's whole 95 % interval at or above the floor), or the implied
 /// intake's upper bound below the floor with or without a log; with no implied intake at all

@@ -656,7 +656,7 @@ fn low_intake_needs_the_weight_trend_not_to_contradict_the_log() {
         "{}",
         f[0].1
     );
-    // Fewer than half the logged days below the floor is not a low log (4 of 8 here).
+    // Half the logged days below the floor, with the mean at it, is not a low log (4 of 8).
     let half: Vec<(i64, f64)> = (1..9)
         .map(|k| (k, if k % 2 == 0 { 1300.0 } else { 1700.0 }))
         .collect();
@@ -1226,14 +1226,22 @@ fn intake_below_resting_energy_for_weeks_is_a_clinical_flag() {
     let out = run(&with(Some(energy_output(2000.0, 1600.0, 2400.0))), &logged);
     assert_eq!(flag(&out), None);
     assert!(!codes(&out).contains(&"low_intake"), "{:?}", codes(&out));
-    // Seven logged days are too few to count; five of ten below is not most.
+    // Seven logged days are too few to count; five of ten below, with a mean (1,450) above
+    // resting energy, is not below.
     let seven = with_intake(base.clone(), &ten_low[..7]);
     assert_eq!(flag(&run(&with(reaching()), &seven)), None);
     let half: Vec<(i64, f64)> = (40..50)
-        .map(|k| (k, if k % 2 == 0 { 1000.0 } else { 1500.0 }))
+        .map(|k| (k, if k % 2 == 0 { 1000.0 } else { 1900.0 }))
         .collect();
     let half = with_intake(base.clone(), &half);
     assert_eq!(flag(&run(&with(reaching()), &half)), None);
+    // Three very low days of ten pull the mean (1,285) below resting energy while most days
+    // sit just above it: below, as the mean is what the body meets.
+    let few_very_low: Vec<(i64, f64)> = (40..50)
+        .map(|k| (k, if k < 43 { 900.0 } else { 1450.0 }))
+        .collect();
+    let few_very_low = with_intake(base.clone(), &few_very_low);
+    assert!(flag(&run(&with(reaching()), &few_very_low)).is_some());
     // Logged days before the window do not count (days 20–29 are before day 33).
     let early: Vec<(i64, f64)> = (20..30).map(|k| (k, 1000.0)).collect();
     let early = with_intake(base.clone(), &early);
