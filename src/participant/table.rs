@@ -3793,6 +3793,28 @@ mod tests {
         assert!(parse_when("2027.13.01", &opts).is_none());
     }
 
+    /// The (day, time of day) each row of `t` is read on.
+    fn days_read(
+        t: &Table,
+        ctx: &FileCtx,
+        opts: &CsvOptions,
+        d: &mut Vec<Diagnostic>,
+    ) -> Vec<(String, Option<String>)> {
+        t.rows
+            .iter()
+            .map(|row| {
+                let c = Cells {
+                    table: t,
+                    row,
+                    ctx,
+                    opts,
+                };
+                let w = c.when("date", d).unwrap();
+                (w.date.to_string(), w.time.map(|x| x.to_string()))
+            })
+            .collect()
+    }
+
     /// Daylight-saving days with `input.time_zone`. Expected local times from Python 3's
     /// `zoneinfo` (IANA tzdata): Europe/Berlin changes on 2026-03-29 and 2026-10-25 at 01:00 UTC,
     /// America/New_York on 2026-03-08 at 07:00 UTC and 2026-11-01 at 06:00 UTC.
@@ -3863,20 +3885,7 @@ mod tests {
         // 1774823400 = 2026-03-29 22:30 UTC.
         let text = "Date (UTC),weight,unit\n2026-03-29 22:30,70,kg\n2026-03-29 21:30,70,kg\n2026-10-25 22:30,70,kg\n";
         let t = read_table(text, &SPEC, &berlin, &ctx, &mut d).unwrap();
-        let days: Vec<(String, Option<String>)> = t
-            .rows
-            .iter()
-            .map(|row| {
-                let c = Cells {
-                    table: &t,
-                    row,
-                    ctx: &ctx,
-                    opts: &berlin,
-                };
-                let w = c.when("date", &mut d).unwrap();
-                (w.date.to_string(), w.time.map(|x| x.to_string()))
-            })
-            .collect();
+        let days = days_read(&t, &ctx, &berlin, &mut d);
         assert_eq!(
             days,
             [
@@ -3893,16 +3902,9 @@ mod tests {
             &mut d,
         )
         .unwrap();
-        let c = Cells {
-            table: &t,
-            row: &t.rows[0],
-            ctx: &ctx,
-            opts: &berlin,
-        };
-        let w = c.when("date", &mut d).unwrap();
         assert_eq!(
-            (w.date.to_string(), w.time.map(|x| x.to_string())),
-            some("2026-03-30", "00:30:00")
+            days_read(&t, &ctx, &berlin, &mut d),
+            [some("2026-03-30", "00:30:00")]
         );
         assert!(d.is_empty(), "{d:?}");
     }
@@ -3920,20 +3922,7 @@ mod tests {
         let text = "Date (UTC),weight,unit\n2026-09-01 23:30,70,kg\n2026-09-03T23:30:00+08:00,70,kg\n2026-09-04 06:00,70,kg\n";
         let t = read_table(text, &SPEC, &sg, &ctx, &mut d).unwrap();
         assert!(d.is_empty(), "{d:?}");
-        let days: Vec<(String, Option<String>)> = t
-            .rows
-            .iter()
-            .map(|row| {
-                let c = Cells {
-                    table: &t,
-                    row,
-                    ctx: &ctx,
-                    opts: &sg,
-                };
-                let w = c.when("date", &mut d).unwrap();
-                (w.date.to_string(), w.time.map(|x| x.to_string()))
-            })
-            .collect();
+        let days = days_read(&t, &ctx, &sg, &mut d);
         assert_eq!(
             days,
             [
