@@ -1185,17 +1185,8 @@ fn retention_shown_beside_few_active_without_a_weigh_in_pins_nobody_across_two_m
         p.row.outcome_kg = p.row.baseline_kg.map(|b| b * 0.98);
     }
     let months = [first, second];
-    let pairs = |rel: &[Release]| -> Vec<String> {
-        let rows: Vec<Vec<ParticipantSummary>> = rel.iter().map(|r| rows(&r.people)).collect();
-        let both: Vec<(&[ParticipantSummary], &Value)> = rows
-            .iter()
-            .zip(rel)
-            .map(|(rs, r)| (rs.as_slice(), &r.report))
-            .collect();
-        super::tests::pattern_attack_releases(&both)
-    };
     let open = unprotected(&months, min);
-    let found = pairs(&open);
+    let found = attack_releases(&open);
     assert!(
         found
             .iter()
@@ -1203,13 +1194,24 @@ fn retention_shown_beside_few_active_without_a_weigh_in_pins_nobody_across_two_m
         "{found:?}"
     );
     let rel = publish_in_order(&months, min);
-    assert_eq!(pairs(&rel), Vec::<String>::new());
+    assert_eq!(attack_releases(&rel), Vec::<String>::new());
     // The first month shows the share with a recent weigh-in. (The second month's "with a
     // recent weigh-in" differs from the first's by 5 people, so the ledger hides it.)
     let e = &rel[0].report["program"]["stats"]["enrolment"];
     assert_eq!(e["with_outcome"]["value"], 269);
     assert!(e["with_outcome_percent"]["value"].is_f64(), "{e}");
     assert!(rel[1].report["program"]["stats"]["enrolment"]["with_outcome"]["suppressed"] == true);
+}
+
+/// The pattern attacker's findings on a series of releases, each read with its people.
+fn attack_releases(rel: &[Release]) -> Vec<String> {
+    let rows: Vec<Vec<ParticipantSummary>> = rel.iter().map(|r| rows(&r.people)).collect();
+    let both: Vec<(&[ParticipantSummary], &Value)> = rows
+        .iter()
+        .zip(rel)
+        .map(|(rs, r)| (rs.as_slice(), &r.report))
+        .collect();
+    super::tests::pattern_attack_releases(&both)
 }
 
 /// Retention counts withdrawals now (retained = started and not withdrawn), so its count is a
@@ -1225,23 +1227,14 @@ fn a_withdrawal_between_two_months_is_not_pinned_by_retention() {
     let mut second = first.clone();
     second[12].row.withdrawn = true;
     let months = [first, second];
-    let attack = |rel: &[Release]| -> Vec<String> {
-        let rows: Vec<Vec<ParticipantSummary>> = rel.iter().map(|r| rows(&r.people)).collect();
-        let both: Vec<(&[ParticipantSummary], &Value)> = rows
-            .iter()
-            .zip(rel)
-            .map(|(rs, r)| (rs.as_slice(), &r.report))
-            .collect();
-        super::tests::pattern_attack_releases(&both)
-    };
     let open = unprotected(&months, min);
-    let found = attack(&open);
+    let found = attack_releases(&open);
     assert!(
         found.iter().any(|f| f.contains("enrolment.retained")),
         "{found:?}"
     );
     let rel = publish_in_order(&months, min);
-    assert_eq!(attack(&rel), Vec::<String>::new());
+    assert_eq!(attack_releases(&rel), Vec::<String>::new());
     // The first month, with nobody withdrawn, prints its retention: 100 %.
     let e = &rel[0].report["program"]["stats"]["enrolment"];
     assert_eq!(e["retention_percent"]["value"], 100.0, "{e}");
