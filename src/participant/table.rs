@@ -1467,13 +1467,15 @@ fn read_records(
             .iter()
             .copied()
             .filter(|&i| {
-                let mut cells = table
-                    .rows
-                    .iter()
-                    .filter_map(|r| table.field(r, i))
-                    .peekable();
-                cells.peek().is_some()
-                    && cells.all(|c| parse_when(c, opts).is_some() || numeric_parts(c).is_some())
+                // Nine in ten at least: a typing error in one cell costs its row (with the
+                // date's own warning), not the file.
+                let (mut cells, mut dates) = (0usize, 0usize);
+                for c in table.rows.iter().filter_map(|r| table.field(r, i)) {
+                    cells += 1;
+                    dates +=
+                        usize::from(parse_when(c, opts).is_some() || numeric_parts(c).is_some());
+                }
+                cells > 0 && 10 * dates >= 9 * cells
             })
             .collect()
     } else {
@@ -1493,7 +1495,7 @@ fn read_records(
             extra.remove(k);
         }
         ctx.note(format!(
-            "column `{}` read as `date`: no column is named as the date, and it is the only one whose cells are all dates",
+            "column `{}` read as `date`: no column is named as the date, and it is the only one whose cells are dates",
             written[i]
         ));
     } else if date_unnamed {
@@ -3464,7 +3466,7 @@ mod tests {
             let notes = ctx.take_notes();
             assert!(
                 notes.iter().any(|n| n.message
-                    == format!("column `{header}` read as `date`: no column is named as the date, and it is the only one whose cells are all dates")),
+                    == format!("column `{header}` read as `date`: no column is named as the date, and it is the only one whose cells are dates")),
                 "{notes:?}"
             );
         }
@@ -3489,6 +3491,20 @@ mod tests {
             "{:?}",
             d[0].hint
         );
+        // One mistyped date of twelve costs its row, with the date's warning, not the file.
+        let mut d = Vec::new();
+        let mut text = "Recorded,Weight (kg)\n".to_string();
+        for k in 1..=12 {
+            let day = if k == 7 {
+                "2026-04-3x".to_string()
+            } else {
+                format!("2026-04-{k:02}")
+            };
+            text.push_str(&format!("{day},72.{k}\n"));
+        }
+        let t = read_table(&text, &spec, &opts, &ctx, &mut d).unwrap();
+        assert_eq!((t.rows.len(), t.column("date")), (12, Some(1)));
+        ctx.take_notes();
         let mut d = Vec::new();
         let t = read_table("Time,Weight (kg)\n07:12,72.5\n", &spec, &opts, &ctx, &mut d);
         assert!(t.is_none());
