@@ -120,13 +120,32 @@ pub fn check_package(metrics: &Path) -> Vec<String> {
 }
 
 /// The sample program run for the period ending 2026-12-01 (HTML only; exit 4, as the README
-/// says: one participant's files are unusable), with its `reports/metrics` folder.
-fn sample_metrics() -> (crate::harness::ProgramTest, std::path::PathBuf) {
-    let t = crate::harness::ProgramTest::sample();
-    let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
-    assert_eq!(out.code, 4, "{}", out.stderr);
-    let metrics = t.dir.join("reports/metrics");
-    (t, metrics)
+/// says: one participant's files are unusable): its `reports/metrics` folder, run once and
+/// shared by the tests here, which only read it (a test that changes files works on its own
+/// copy, see [`own_copy`]). The run's folder lives under the build's `target/tmp` for the
+/// whole test process.
+fn sample_metrics() -> &'static Path {
+    static RUN: std::sync::OnceLock<(crate::harness::ProgramTest, std::path::PathBuf)> =
+        std::sync::OnceLock::new();
+    let (_, metrics) = RUN.get_or_init(|| {
+        let t = crate::harness::ProgramTest::sample();
+        let out = t.run(&["run", "{dir}", "--as-of", "2026-12-01", "--formats", "html"]);
+        assert_eq!(out.code, 4, "{}", out.stderr);
+        let metrics = t.dir.join("reports/metrics");
+        (t, metrics)
+    });
+    metrics.as_path()
+}
+
+/// A copy of the shared metrics folder that a test may change.
+fn own_copy(metrics: &Path) -> (tempfile::TempDir, std::path::PathBuf) {
+    let tmp = tempfile::Builder::new()
+        .prefix("cohortpress-test-")
+        .tempdir_in(env!("CARGO_TARGET_TMPDIR"))
+        .unwrap();
+    let dir = tmp.path().join("metrics");
+    crate::harness::copy_tree(metrics, &dir);
+    (tmp, dir)
 }
 
 /// Every file a run writes in `metrics/` is described by its `datapackage.json` (but the
@@ -135,14 +154,14 @@ fn sample_metrics() -> (crate::harness::ProgramTest, std::path::PathBuf) {
 /// CSV files, and the weekly file's series only by name.
 #[test]
 fn every_file_in_the_metrics_folder_is_described() {
-    let (_t, metrics) = sample_metrics();
+    let metrics = sample_metrics();
     let package = read_json(&metrics.join("datapackage.json"));
     let resources = package["resources"].as_array().unwrap();
     let described: BTreeSet<&str> = resources
         .iter()
         .map(|r| r["path"].as_str().unwrap())
         .collect();
-    let files: Vec<String> = std::fs::read_dir(&metrics)
+    let files: Vec<String> = std::fs::read_dir(metrics)
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
@@ -184,7 +203,7 @@ fn every_file_in_the_metrics_folder_is_described() {
         series.contains("trend.weight_trend_weekly: ") && series.contains("(kg)"),
         "{series}"
     );
-    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    assert_eq!(check_package(metrics), Vec::<String>::new());
 }
 
 fn read_json(path: &Path) -> Value {
@@ -195,7 +214,7 @@ fn read_json(path: &Path) -> Value {
 /// cell, a repeated key and a column the schema does not list.
 #[test]
 fn the_checker_finds_a_broken_tidy_file() {
-    let (_t, metrics) = sample_metrics();
+    let (_tmp, metrics) = own_copy(sample_metrics());
     assert_eq!(check_package(&metrics), Vec::<String>::new());
 
     let weekly = metrics.join("weekly.csv");
@@ -243,8 +262,8 @@ fn the_checker_finds_a_broken_tidy_file() {
 /// primary (BOCF) nor the completers' figure the group report prints.
 #[test]
 fn participants_csv_tells_enrolment_withdrawal_and_who_counts_as_a_completer() {
-    let (_t, metrics) = sample_metrics();
-    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let metrics = sample_metrics();
+    assert_eq!(check_package(metrics), Vec::<String>::new());
     let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
     let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
     let col = |name: &str| {
@@ -349,8 +368,8 @@ fn the_datapackage_names_the_run_that_made_the_files() {
 /// reading the descriptor gives the analyst a date, not a string to parse.
 #[test]
 fn a_day_among_the_text_outputs_is_typed_date() {
-    let (_t, metrics) = sample_metrics();
-    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let metrics = sample_metrics();
+    assert_eq!(check_package(metrics), Vec::<String>::new());
     let package = read_json(&metrics.join("datapackage.json"));
     let field = |name: &str| {
         package["resources"][0]["schema"]["fields"]
@@ -376,7 +395,7 @@ fn a_day_among_the_text_outputs_is_typed_date() {
 /// was described only as "weight-change category", the BMI classes as "WHO BMI class now").
 #[test]
 fn each_code_column_names_its_codes() {
-    let (_t, metrics) = sample_metrics();
+    let metrics = sample_metrics();
     let package = read_json(&metrics.join("datapackage.json"));
     let fields = package["resources"][0]["schema"]["fields"]
         .as_array()
@@ -421,7 +440,7 @@ fn each_code_column_names_its_codes() {
 /// `38.0`. Measures that are not counts stay `number`.
 #[test]
 fn counts_are_integers_in_the_descriptor_the_csv_and_the_json() {
-    let (_t, metrics) = sample_metrics();
+    let metrics = sample_metrics();
     let package = read_json(&metrics.join("datapackage.json"));
     let fields = package["resources"][0]["schema"]["fields"]
         .as_array()
@@ -444,7 +463,7 @@ fn counts_are_integers_in_the_descriptor_the_csv_and_the_json() {
         assert_eq!(ty(name), "integer", "{name}");
     }
     assert_eq!(ty("trend.current_weight_kg"), "number");
-    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    assert_eq!(check_package(metrics), Vec::<String>::new());
     let json = read_json(&metrics.join("participants.json"));
     let mut seen = 0;
     for row in json.as_array().unwrap() {
@@ -502,8 +521,8 @@ fn participants_csv_does_not_count_a_folder_the_group_report_leaves_out() {
 /// weeks, the descriptor says what it holds, and its mean by week is the group report's.
 #[test]
 fn the_trajectory_by_week_since_enrolment_is_in_tables_csv_and_repeats_the_group_report() {
-    let (_t, metrics) = sample_metrics();
-    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let metrics = sample_metrics();
+    assert_eq!(check_package(metrics), Vec::<String>::new());
     let package = read_json(&metrics.join("datapackage.json"));
     let tables = package["resources"]
         .as_array()
