@@ -276,6 +276,8 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
     // twice but names the mapping's first line, not the key; here it is located.
     let mut maps: Vec<Option<(bool, std::collections::HashMap<String, usize>)>> = Vec::new();
     let (mut events, mut aliases, mut expanded) = (0u64, 0u64, 0u64);
+    // Where the last event read ends (line, 0-based column).
+    let mut last_end = (1usize, 0usize);
     let set_size = |sizes: &mut Vec<u64>, id: usize, size: u64| {
         if id > 0 && id <= MAX_YAML_EVENTS as usize {
             if sizes.len() <= id {
@@ -291,8 +293,11 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
                 let m = e.marker();
                 if e.info().contains("recursion limit") {
                     // The scanner's own bound on flow nesting (deeper than ours, reached when
-                    // it reads ahead): the same refusal as below.
-                    return Err(too_deep(file).at(m.line() as u64, Some(m.col() as u64 + 1)));
+                    // it reads ahead, so its marker lies far past the point): the same refusal
+                    // as below, at the bracket that passes our limit.
+                    let (line, col) =
+                        deep_flow_at(text, last_end, open.len()).unwrap_or((m.line(), m.col()));
+                    return Err(too_deep(file).at(line as u64, Some(col as u64 + 1)));
                 }
                 if e.info().contains("unknown anchor") {
                     // `*name` with no `&name` before it: say which name, and what an alias is.
@@ -314,6 +319,7 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
                     .hint("check indentation (spaces, not tabs) and quote values containing `:` or `#`"));
             }
         };
+        last_end = (span.end.line(), span.end.col());
         let here =
             |d: Diagnostic| d.at(span.start.line() as u64, Some(span.start.col() as u64 + 1));
         events += 1;
@@ -429,6 +435,38 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
         }
     }
     Ok(())
+}
+
+/// The line and 0-based column (in characters) of the `[` or `{` after `from` that opens the
+/// list or mapping one level past [`MAX_YAML_DEPTH`], given `depth` levels already open there.
+/// Quoted text is skipped; a closing bracket closes a level. `None` when no bracket does (the
+/// caller then keeps the parser's own position).
+fn deep_flow_at(text: &str, from: (usize, usize), depth: usize) -> Option<(usize, usize)> {
+    let mut depth = depth;
+    let mut quote: Option<char> = None;
+    for (i, line) in text.lines().enumerate().skip(from.0.saturating_sub(1)) {
+        let skip = if i + 1 == from.0 { from.1 } else { 0 };
+        let mut prev = ' ';
+        for (col, c) in line.chars().enumerate().skip(skip) {
+            match (quote, c) {
+                (Some('"'), '"') if prev != '\\' => quote = None,
+                (Some('\''), '\'') => quote = None,
+                (Some(_), _) => {}
+                (None, '"' | '\'') => quote = Some(c),
+                (None, '#') if prev.is_whitespace() => break,
+                (None, '[' | '{') => {
+                    depth += 1;
+                    if depth > MAX_YAML_DEPTH {
+                        return Some((i + 1, col));
+                    }
+                }
+                (None, ']' | '}') => depth = depth.saturating_sub(1),
+                _ => {}
+            }
+            prev = c;
+        }
+    }
+    None
 }
 
 fn too_deep(file: &str) -> Diagnostic {
@@ -814,7 +852,21 @@ mod tests {
         let d = from_str::<Value>(&text, "deep.yaml").unwrap_err();
         assert!(d.message.contains("nested more than 32 levels"), "{d}");
         assert_eq!(d.line, Some(1));
+        // The 33rd bracket: the scanner stops far past it (reading ahead), at column 257.
+        assert_eq!(d.column, Some(33), "{d}");
         assert!(d.hint.as_deref().unwrap().contains("nests"));
+        // Below a mapping and a list (two levels), after a quoted bracket and a closed list: the 31st
+        // bracket of the deep list (column 40), whether the parser or its scanner stops.
+        for n in [40, 300] {
+            let text = format!(
+                "a: \"[[\"\nb: [[1], {}{}\n",
+                "[".repeat(n),
+                "]".repeat(n + 1)
+            );
+            let d = from_str::<Value>(&text, "deep.yaml").unwrap_err();
+            assert!(d.message.contains("nested more than 32 levels"), "{d}");
+            assert_eq!((d.line, d.column), (Some(2), Some(40)), "{n}: {d}");
+        }
         let ok = format!("a: {}{}", "[".repeat(31), "]".repeat(31));
         assert!(from_str::<Value>(&ok, "deep.yaml").is_ok());
     }
