@@ -1733,6 +1733,58 @@ fn as_written(c: &Cells<'_>, col: &str, value: f64, unit: &str) -> String {
     }
 }
 
+/// An activity's minutes from its start (the date column) and its end (`end`), both
+/// date-times: the row is dropped, with a warning at the end's cell, when either has no time
+/// of day, the end is before the start, or the span is longer than one activity can last
+/// ([`MAX_ACTIVITY_MINUTES`]). A span across midnight is dated by the start.
+fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
+    // The start was read (and any problem with it named) before the row's values.
+    let start = c.when("date", &mut Vec::new())?;
+    let end = c.when("end", d)?;
+    let (start_raw, end_raw) = (
+        c.text("date").unwrap_or_default(),
+        c.text("end").unwrap_or_default(),
+    );
+    let found = format!("start `{start_raw}`, end `{end_raw}`");
+    let (Some(t0), Some(t1)) = (start.time, end.time) else {
+        d.push(
+            c.warn("end", "the activity's start or end has no time of day, so its duration cannot be told; the row is dropped")
+                .expected("a start and an end with their times (`2026-05-04 07:10` to `2026-05-04 07:52`)")
+                .found(found)
+                .hint("export the activities with their start and end times, or with a duration column"),
+        );
+        return None;
+    };
+    let minutes = (end.date.and_time(t1) - start.date.and_time(t0)).num_seconds() as f64 / 60.0;
+    if minutes < 0.0 {
+        d.push(
+            c.warn(
+                "end",
+                "the activity ends before it starts; the row is dropped",
+            )
+            .expected("an end after the start")
+            .found(found)
+            .hint("check the two times of this row (start and end swapped, or a wrong day)"),
+        );
+        return None;
+    }
+    if minutes > MAX_ACTIVITY_MINUTES {
+        d.push(
+            c.warn("end", format!(
+                "the activity lasts {} minutes from start to end, longer than one activity can; the row is dropped",
+                minutes.round()
+            ))
+            .expected(format!("at most {MAX_ACTIVITY_MINUTES} minutes from start to end"))
+            .found(found)
+            .hint("check the end's day; a tracker left running is no activity"),
+        );
+        return None;
+    }
+    c.table
+        .recognised("durations as the time from each activity's start to its end");
+    Some(minutes)
+}
+
 /// Parses `activity.csv`: codes from the activity table, or any label with an explicit `met`.
 pub fn parse_activity(
     text: &str,
@@ -1779,13 +1831,25 @@ pub fn parse_activity(
             c.summary_row(label);
             return None;
         }
-        let header_hours = matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours"));
+        // The unit the header names for bare numbers, and minutes per such unit.
+        let (header_unit, per_unit) = match c.table.header_unit("minutes") {
+            Some("h" | "hr" | "hours") => ("h", 60.0),
+            Some("s" | "sec" | "secs" | "seconds") => ("s", 1.0 / 60.0),
+            _ => ("min", 1.0),
+        };
         declared_rows += usize::from(c.table.header_unit("minutes").is_some());
-        let raw = c.required_text("minutes", d)?;
+        // No duration column, but each activity's end: the minutes are end − start.
+        let from_span = c.table.column("minutes").is_none() && c.table.column("end").is_some();
+        let raw = if from_span {
+            String::new()
+        } else {
+            c.required_text("minutes", d)?
+        };
         let minutes = match split_duration(&raw) {
+            _ if from_span => span_minutes(c, d)?,
             WrittenDuration::Plain(_) | WrittenDuration::Other => {
                 let v = c.number("minutes", d)?;
-                if header_hours { v * 60.0 } else { v }
+                v * per_unit
             }
             WrittenDuration::Clock(m) => {
                 c.table
@@ -1796,7 +1860,7 @@ pub fn parse_activity(
                 // One unit in the cell that the header contradicts (`45 min` under
                 // `Duration (h)`): which is right cannot be known.
                 if let (Some(u), Some(h)) = (unit, c.table.header_unit("minutes"))
-                    && u != if header_hours { "h" } else { "min" }
+                    && u != header_unit
                 {
                     conflicts.push(UnitConflict {
                         line: c.row.line,
@@ -1941,7 +2005,7 @@ pub fn parse_activity(
     for r in &rows {
         *per_day.entry(r.date).or_default() += r.value.1;
     }
-    let mcol = table.column("minutes");
+    let mcol = table.column("minutes").or(table.column("end"));
     let mut warned = std::collections::BTreeSet::new();
     let mut out = Vec::new();
     for r in rows {

@@ -1103,6 +1103,55 @@ fn read_records(
             units_from_program.insert(c);
         }
     }
+    // An activity's start and end (`Start`, `End`; `Start Date`, `End Date`): the start dates
+    // the row, and with no duration column the end gives the duration, end − start, read row
+    // by row (`records::parse_activity`). Elsewhere (a weigh-in file with two columns of
+    // dates) nothing tells which date is the measurement's, and the file stays refused below.
+    if spec.name == "activity.csv" {
+        let key_is = |i: usize, keys: &[&str]| keys.contains(&header_key(&written[i]).0.as_str());
+        let starts: Vec<usize> = (0..written.len())
+            .filter(|&i| key_is(i, crate::program::files::ACTIVITY_STARTS))
+            .filter(|i| unnamed.contains(i) || columns.get("date") == Some(i))
+            .collect();
+        let ends: Vec<usize> = unnamed
+            .iter()
+            .copied()
+            .filter(|&i| key_is(i, crate::program::files::ACTIVITY_ENDS))
+            .collect();
+        if let ([s], [e]) = (&starts[..], &ends[..])
+            && columns.get("date").is_none_or(|d| d == s)
+        {
+            let (s, e) = (*s, *e);
+            if columns.insert("date", s).is_none() {
+                renamed.push((written[s].clone(), "date"));
+            }
+            let mut taken = vec![s];
+            if columns.contains_key("minutes") {
+                // The end is not read, and is no column of ours misspelt: named in the note
+                // of columns not read rather than warned about.
+                if let Some(k) = extra_at.iter().position(|&x| x == e) {
+                    extra_at.remove(k);
+                    extra.remove(k);
+                    ignored.push(format!("`{}`", written[e]));
+                }
+            } else {
+                columns.insert("end", e);
+                taken.push(e);
+                ctx.note(format!(
+                    "no duration column: each activity's minutes are its end (`{}`) less its start (`{}`), dated by the start",
+                    written[e], written[s]
+                ));
+            }
+            for i in taken {
+                unnamed.retain(|&u| u != i);
+                ignored.retain(|n| *n != format!("`{}`", written[i]));
+                if let Some(k) = extra_at.iter().position(|&x| x == i) {
+                    extra_at.remove(k);
+                    extra.remove(k);
+                }
+            }
+        }
+    }
     // Dates written as rows of their own above the measurements, which have only a time of
     // day (`Time,Weight,…` / `" Nov 25, 2026",` / `7:12 AM,72.5 kg,…`: a smart scale app's
     // export): whether they are is known once the rows are read.
@@ -1131,6 +1180,8 @@ fn read_records(
         .filter(|c| {
             !(**c == "date" && (time_for_date_rows.is_some() || !date_by_content.is_empty()))
         })
+        // An end column stands for the duration (see above).
+        .filter(|c| !(**c == "minutes" && columns.contains_key("end")))
         // A unit in the value column's header stands for the unit column.
         .filter(|c| {
             !spec
@@ -1468,9 +1519,15 @@ fn read_records(
             .copied()
             .filter(|&i| {
                 // Nine in ten at least: a typing error in one cell costs its row (with the
-                // date's own warning), not the file.
+                // date's own warning), not the file. Rows summing up the others (`Average`,
+                // `Total change` below the dates) are no cells of dates or of anything else.
                 let (mut cells, mut dates) = (0usize, 0usize);
-                for c in table.rows.iter().filter_map(|r| table.field(r, i)) {
+                for c in table
+                    .rows
+                    .iter()
+                    .filter_map(|r| table.field(r, i))
+                    .filter(|c| !is_summary_date(c))
+                {
                     cells += 1;
                     dates +=
                         usize::from(parse_when(c, opts).is_some() || numeric_parts(c).is_some());
@@ -2397,6 +2454,22 @@ pub fn is_label(text: &str, labels: &[&str]) -> bool {
     labels.contains(&t.as_str())
 }
 
+/// Whether `text`, where a row's date would be, labels a row that sums up the others: one of
+/// [`SUMMARY_LABELS`], or a short phrase without digits that starts or ends with one (`Total
+/// change`, `Weekly average`, `Grand total:`).
+pub fn is_summary_date(text: &str) -> bool {
+    if is_label(text, &SUMMARY_LABELS) {
+        return true;
+    }
+    let t = text.trim().trim_end_matches(':').to_lowercase();
+    let words: Vec<&str> = t.split_whitespace().collect();
+    !t.chars().any(|c| c.is_ascii_digit())
+        && (2..=4).contains(&words.len())
+        && [words[0], words[words.len() - 1]]
+            .iter()
+            .any(|w| SUMMARY_LABELS.contains(w))
+}
+
 /// A bad value that was warned about and left out.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Dropped;
@@ -2507,7 +2580,7 @@ impl Cells<'_> {
             }
             // A row that sums up the others (`Average`, `Total` where the date would be) is no
             // measurement: left out, and counted for the file's note.
-            None if is_label(s, &SUMMARY_LABELS) => {
+            None if is_summary_date(s) => {
                 self.summary_row(s);
                 None
             }

@@ -2151,3 +2151,79 @@ fn a_steps_only_activity_file_says_why_and_what_to_add() {
         "{hint}"
     );
 }
+
+/// Workout exports that give each activity's start and end and no duration (`Start`, `End`):
+/// the file was refused for a missing `minutes` column. The minutes are end − start, dated by
+/// the start (across midnight too); a row whose end is before its start, that spans more than
+/// one activity can last, or whose end has no time of day is dropped with a warning at the
+/// end's cell. The same columns in a weigh-in file stay refused, naming both.
+#[test]
+fn an_activity_file_with_start_and_end_and_no_duration_reads_end_less_start() {
+    let (a, diags) = activity_or_error(
+        "Activity,Start,End,Distance (km)\n\
+         Walking,2026-05-04 07:10:00,2026-05-04 07:52:30,3.6\n\
+         Walking,2026-05-07 23:30,2026-05-08 00:15,3.4\n\
+         Yoga,2026-05-09T19:00:00+01:00,2026-05-09T19:40:00+01:00,\n\
+         Walking,2026-05-10 08:00,2026-05-10 07:30,2.0\n\
+         Walking,2026-05-11 08:00,2026-05-12 09:00,9.0\n\
+         Walking,2026-05-13 08:00,2026-05-13,2.0\n\
+         Walking,2026-05-14 08:00,,2.0\n",
+    );
+    let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(
+        got,
+        [
+            (d(2026, 5, 4), 42.5),
+            (d(2026, 5, 7), 45.0),
+            (d(2026, 5, 9), 40.0)
+        ]
+    );
+    let at: Vec<(Option<u64>, Option<u64>)> = diags.iter().map(|x| (x.line, x.column)).collect();
+    assert_eq!(
+        at,
+        [
+            (Some(5), Some(3)),
+            (Some(6), Some(3)),
+            (Some(7), Some(3)),
+            (Some(8), Some(3))
+        ],
+        "{diags:#?}"
+    );
+    assert_eq!(
+        diags[0].message,
+        "the activity ends before it starts; the row is dropped"
+    );
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("start `2026-05-10 08:00`, end `2026-05-10 07:30`")
+    );
+    assert!(
+        diags[1].message.contains("lasts 1500 minutes"),
+        "{}",
+        diags[1]
+    );
+    assert!(diags[2].message.contains("no time of day"), "{}", diags[2]);
+    assert_eq!(diags[3].message, "`end` is empty; the row is dropped");
+    // With a duration column, the start dates the row and the end is not read.
+    let (a, diags) = activity_or_error(
+        "Workout Type,Start Date,End Date,Duration (s)\n\
+         Walking,2026-05-04 07:10:00 +0100,2026-05-04 07:55:00 +0100,2700\n\
+         Yoga,2026-05-05 23:40:00 +0100,2026-05-06 00:20:00 +0100,2400\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 4), 45.0), (d(2026, 5, 5), 40.0)]);
+    // A weigh-in file's two columns of dates tell no duration and no date: refused.
+    let (w, diags) = read(
+        "Start,End,Weight (kg)\n2026-05-04 07:12,2026-05-04 07:13,72.5\n",
+        &window(),
+    );
+    assert!(w.is_none());
+    assert!(
+        diags[0]
+            .hint
+            .as_deref()
+            .is_some_and(|h| h.starts_with("columns `Start` and `End` each hold dates")),
+        "{diags:#?}"
+    );
+}
