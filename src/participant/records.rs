@@ -10,7 +10,8 @@ use super::quantity::{
     MassUnit, WrittenDuration, WrittenMass, number_prefix_len, split_duration, split_mass,
 };
 use super::table::{
-    Cells, CsvOptions, Dropped, FileCtx, SUMMARY_LABELS, Table, header_key, is_label, read_table,
+    Cells, CsvOptions, Dropped, FileCtx, SUMMARY_LABELS, Table, When, header_key, is_label,
+    read_table,
 };
 use crate::activities;
 use crate::diag::{Diagnostic, Severity};
@@ -1738,11 +1739,39 @@ fn as_written(c: &Cells<'_>, col: &str, value: f64, unit: &str) -> String {
 /// of day, the end is before the start, or the span is longer than one activity can last
 /// ([`MAX_ACTIVITY_MINUTES`]). A span across midnight is dated by the start.
 fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
-    // The start was read (and any problem with it named) before the row's values.
-    let start = c.when("date", &mut Vec::new())?;
-    let end = c.when("end", d)?;
+    // The row's date was read (and any problem with it named) before the row's values.
+    let day = c.when("date", &mut Vec::new())?;
+    // A start or end beside a date column may be a time of day alone (`07:10`, `7:10 PM`):
+    // on the row's day, or for the end, on the start's day.
+    let time_only = |s: &str| {
+        ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"]
+            .iter()
+            .find_map(|f| NaiveTime::parse_from_str(s, f).ok())
+    };
+    let at = |col: &str, on: NaiveDate, d: &mut Vec<Diagnostic>| -> Option<When> {
+        let raw = c.required_text(col, d)?;
+        match time_only(&raw) {
+            Some(t) => Some(When {
+                date: on,
+                time: Some(t),
+                from_utc: false,
+            }),
+            None => c.when(col, d),
+        }
+    };
+    let start_col = if c.table.column("start").is_some() {
+        "start"
+    } else {
+        "date"
+    };
+    let start = if start_col == "start" {
+        at("start", day.date, d)?
+    } else {
+        day
+    };
+    let end = at("end", start.date, d)?;
     let (start_raw, end_raw) = (
-        c.text("date").unwrap_or_default(),
+        c.text(start_col).unwrap_or_default(),
         c.text("end").unwrap_or_default(),
     );
     let found = format!("start `{start_raw}`, end `{end_raw}`");
@@ -1764,7 +1793,7 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
             )
             .expected("an end after the start")
             .found(found)
-            .hint("check the two times of this row (start and end swapped, or a wrong day)"),
+            .hint("check the two times of this row (start and end swapped, or a wrong day); an activity across midnight needs its end written with its date"),
         );
         return None;
     }

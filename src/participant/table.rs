@@ -985,6 +985,15 @@ fn read_records(
     let mut ignored: Vec<String> = Vec::new();
     // Fields the header does not name as one of ours.
     let mut unnamed: Vec<usize> = Vec::new();
+    // An activity's start beside a date column of its own (`Date,Start,End` with times of
+    // day): the start is not the date (see below the loop).
+    let is_start = |k: &str| crate::program::files::ACTIVITY_STARTS.contains(&k);
+    let start_beside_date = spec.name == "activity.csv"
+        && written.iter().any(|w| {
+            let k = header_key(w).0;
+            !is_start(&k)
+                && (k == "date" || spec.aliases.iter().any(|(a, c)| *a == k && *c == "date"))
+        });
     for (i, name) in written.iter().enumerate() {
         let (key, unit) = header_key(name);
         let ours = |k: &str| spec.all_columns().find(|c| *c == k);
@@ -1003,6 +1012,9 @@ fn read_records(
             .map(|m| m.0)
             .or_else(|| ours(&key))
             .or_else(|| alias(&key));
+        if start_beside_date && mapped.is_none() && known == Some("date") && is_start(&key) {
+            known = None;
+        }
         let mut unit = unit;
         // A unit named by the mapping (`"Weight": weight (kg)`) is the unit of a column of
         // bare numbers: applied below, once the file's own columns are known.
@@ -1118,28 +1130,44 @@ fn read_records(
             .copied()
             .filter(|&i| key_is(i, crate::program::files::ACTIVITY_ENDS))
             .collect();
-        if let ([s], [e]) = (&starts[..], &ends[..])
-            && columns.get("date").is_none_or(|d| d == s)
-        {
+        if usable && let ([s], [e]) = (&starts[..], &ends[..]) {
             let (s, e) = (*s, *e);
-            if columns.insert("date", s).is_none() {
-                renamed.push((written[s].clone(), "date"));
+            // `Date,Start,End`: the date column dates the row, the start and end may be times
+            // of that day.
+            let beside = columns.get("date").is_some_and(|&d| d != s);
+            let mut taken = Vec::new();
+            if !beside {
+                if columns.insert("date", s).is_none() {
+                    renamed.push((written[s].clone(), "date"));
+                }
+                taken.push(s);
             }
-            let mut taken = vec![s];
             if columns.contains_key("minutes") {
-                // The end is not read, and is no column of ours misspelt: named in the note
-                // of columns not read rather than warned about.
-                if let Some(k) = extra_at.iter().position(|&x| x == e) {
-                    extra_at.remove(k);
-                    extra.remove(k);
-                    ignored.push(format!("`{}`", written[e]));
+                // The end (and a start beside the date) is not read, and is no column of ours
+                // misspelt: named in the note of columns not read rather than warned about.
+                for i in [s, e].into_iter().filter(|i| !taken.contains(i)) {
+                    if let Some(k) = extra_at.iter().position(|&x| x == i) {
+                        extra_at.remove(k);
+                        extra.remove(k);
+                        ignored.push(format!("`{}`", written[i]));
+                    }
                 }
             } else {
+                if beside {
+                    columns.insert("start", s);
+                    taken.push(s);
+                }
                 columns.insert("end", e);
                 taken.push(e);
                 ctx.note(format!(
-                    "no duration column: each activity's minutes are its end (`{}`) less its start (`{}`), dated by the start",
-                    written[e], written[s]
+                    "no duration column: each activity's minutes are its end (`{}`) less its start (`{}`), dated by {}",
+                    written[e],
+                    written[s],
+                    if beside {
+                        "the date column (a start or end written as a time of day is on that day)"
+                    } else {
+                        "the start"
+                    }
                 ));
             }
             for i in taken {

@@ -2213,6 +2213,24 @@ fn an_activity_file_with_start_and_end_and_no_duration_reads_end_less_start() {
     assert!(diags.is_empty(), "{diags:#?}");
     let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
     assert_eq!(got, [(d(2026, 5, 4), 45.0), (d(2026, 5, 5), 40.0)]);
+    // A date column of its own beside the start and end, which are times of that day: the
+    // file was refused, `date` named twice (`Date` and `Start Time`). A time-only end before
+    // its start is not taken to be after midnight.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Start Time,End Time
+         2026-05-04,Walking,07:10,07:52
+         2026-05-05,Yoga,7:00 PM,7:40 PM
+         2026-05-06,Walking,23:30,00:15
+",
+    );
+    let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 4), 42.0), (d(2026, 5, 5), 40.0)]);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(4), Some(4)));
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("start `23:30`, end `00:15`")
+    );
     // A weigh-in file's two columns of dates tell no duration and no date: refused.
     let (w, diags) = read(
         "Start,End,Weight (kg)\n2026-05-04 07:12,2026-05-04 07:13,72.5\n",
