@@ -1035,14 +1035,35 @@ fn read_records(
             unit = Some(u.to_string());
         }
         match known {
+            // The same quantity again in another unit its header names (`Weight (kg)`,
+            // `Weight (lb)`: scales that export both): the first column is read, each
+            // header saying its own unit, and the other is named as not read.
+            Some(c)
+                if let Some(&first) = columns.get(c)
+                    && let Some(u) = unit.as_deref()
+                    && units.get(c).is_some_and(|f| f != u) =>
+            {
+                ctx.note(format!(
+                    "columns `{}` and `{name}` give `{c}` in two units; `{}` is read",
+                    written[first], written[first]
+                ));
+                ignored.push(format!("`{name}`"));
+            }
             Some(c) => {
-                if columns.insert(c, i).is_some() {
+                if let Some(first) = columns.insert(c, i) {
                     diags.push(
                         ctx.error(format!(
                             "column `{c}` appears twice in the header; the file is not used"
                         ))
                         .at(header_line, Some(i as u64 + 1))
                         .field(c)
+                        .expected(format!("one column read as `{c}`"))
+                        .found(format!(
+                            "`{}` (column {}) and `{name}` (column {})",
+                            written[first],
+                            first + 1,
+                            i + 1
+                        ))
                         .hint(
                             "keep one column of each name (check `input.columns` in program.yaml)",
                         ),
@@ -1471,6 +1492,17 @@ fn read_records(
         } else {
             true
         };
+        // A summary written across the row's fields as one (`Average: 88.15 kg`, `Total 510`
+        // below the rows): no measurement, and no row of the wrong shape either.
+        if !fits
+            && let Some(f) = rec.iter().map(str::trim).find(|f| !f.is_empty())
+            && starts_as_summary(f)
+        {
+            let mut rows = table.summary_rows.borrow_mut();
+            rows.0 += 1;
+            rows.1.get_or_insert((line, shorten(f, 40)));
+            continue;
+        }
         if !fits {
             let mut d = ctx
                 .warning(format!(
@@ -2498,6 +2530,21 @@ pub fn is_summary_date(text: &str) -> bool {
             .any(|w| SUMMARY_LABELS.contains(w))
 }
 
+/// Whether `text` starts with a word of [`SUMMARY_LABELS`] standing alone (`Average: 88.15
+/// kg`, `Total 510 kcal`, `Daily total: 1,840`), as a summary written in one field begins.
+fn starts_as_summary(text: &str) -> bool {
+    let t = text.to_lowercase();
+    let words: Vec<&str> = t
+        .split(|c: char| c.is_whitespace() || c == ':' || c == '=')
+        .filter(|w| !w.is_empty())
+        .collect();
+    match words.as_slice() {
+        ["daily", "total", ..] => true,
+        [first, ..] => SUMMARY_LABELS.contains(first),
+        [] => false,
+    }
+}
+
 /// A bad value that was warned about and left out.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Dropped;
@@ -2672,7 +2719,10 @@ impl Cells<'_> {
     pub fn summary_row(&self, label: &str) {
         let mut rows = self.table.summary_rows.borrow_mut();
         rows.0 += 1;
-        rows.1.get_or_insert((self.row.line, label.to_string()));
+        // The first in the file: rows summed up in one field are counted while reading.
+        if rows.1.as_ref().is_none_or(|(l, _)| *l > self.row.line) {
+            rows.1 = Some((self.row.line, label.to_string()));
+        }
     }
 
     /// A numeric date (`13/05/2026`) in the order found for the file (see [`NumericOrder`]),

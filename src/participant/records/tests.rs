@@ -2245,3 +2245,51 @@ fn an_activity_file_with_start_and_end_and_no_duration_reads_end_less_start() {
         "{diags:#?}"
     );
 }
+
+/// Summary rows at the foot of a weigh-in export: a phrase in the date column (`Total change`,
+/// `Weekly average`), or the whole summary in one field (`Average: 88.15 kg`). They are left
+/// out with a note naming the first one's line, not read, warned about as rows of the wrong
+/// shape, or counted against a date column found by its cells (which refused the file: 5
+/// dates of 7 cells). Scales that export the weight in kg and in lb are read from the first.
+#[test]
+fn summary_rows_at_the_foot_are_left_out_with_a_note_and_two_unit_columns_read_the_first() {
+    let read_noted = |text: &str| {
+        let ctx = ctx("weights.csv");
+        let mut diags = Vec::new();
+        let w = parse_weights(text, &CsvOptions::default(), &ctx, &window(), &mut diags);
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        (w, diags, notes)
+    };
+    let (w, diags, notes) = read_noted(
+        "Measured,Weight (kg),Change (kg)\n2026-05-04,88.4,\n2026-05-11,87.9,-0.5\n\
+         2026-05-18,87.5,-0.4\n2026-05-25,87.6,0.1\n2026-06-01,87.0,-0.6\n,,\n\
+         Weekly average,87.7,\nTotal change,,-1.4\nAverage: 87.7 kg\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kg: Vec<f64> = w.unwrap().iter().map(|x| x.weight.kg()).collect();
+    assert_eq!(kg, [88.4, 87.9, 87.5, 87.6, 87.0]);
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("3 rows summing up the others (`Weekly average` on line 8)")),
+        "{notes:#?}"
+    );
+    // A word that only contains a label, or a label with digits, is no summary: a date that
+    // cannot be read, warned about at its cell.
+    let (w, diags, _) =
+        read_noted("Date,Weight (kg)\n2026-05-04,88.4\n2026-05-11,87.9\nTotals 2026,87.7\n");
+    assert_eq!(w.unwrap().len(), 2);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(4), Some(1)));
+    let (w, diags, notes) = read_noted(
+        "Date,Weight (kg),Weight (lb),BMI\n2026-05-04,88.4,194.9,29.1\n2026-05-11,87.9,193.8,28.9\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kg: Vec<f64> = w.unwrap().iter().map(|x| x.weight.kg()).collect();
+    assert_eq!(kg, [88.4, 87.9]);
+    assert!(
+        notes.iter().any(|n| n
+            == "columns `Weight (kg)` and `Weight (lb)` give `weight` in two units; `Weight (kg)` is read"),
+        "{notes:#?}"
+    );
+}
