@@ -1866,6 +1866,10 @@ pub fn parse_activity(
             Some("s" | "sec" | "secs" | "seconds") => ("s", 1.0 / 60.0),
             _ => ("min", 1.0),
         };
+        // A header that says how its durations are written as clock times (`Duration
+        // (h:mm)`, `Time (mm:ss)`, `Duration (hh:mm:ss)`): it tells a one-colon duration's
+        // reading, and a bare number under it is no such duration.
+        let clock_header = c.table.header_unit("minutes").filter(|u| u.contains(':'));
         declared_rows += usize::from(c.table.header_unit("minutes").is_some());
         // No duration column, but each activity's end: the minutes are end − start.
         let from_span = c.table.column("minutes").is_none() && c.table.column("end").is_some();
@@ -1876,6 +1880,15 @@ pub fn parse_activity(
         };
         let minutes = match split_duration(&raw) {
             _ if from_span => span_minutes(c, d)?,
+            WrittenDuration::Plain(_) if let Some(h) = clock_header => {
+                d.push(
+                    c.warn("minutes", format!("a number alone under a header of durations written as `{h}`: minutes, hours or seconds cannot be told; the row is dropped"))
+                        .expected(format!("a duration written as `{h}`, or with its unit (`45 min`)"))
+                        .found(format!("`{raw}`"))
+                        .hint("export every duration the same way, or write the unit with the number"),
+                );
+                return None;
+            }
             WrittenDuration::Plain(_) | WrittenDuration::Other => {
                 let v = c.number("minutes", d)?;
                 v * per_unit
@@ -1889,6 +1902,7 @@ pub fn parse_activity(
                 // One unit in the cell that the header contradicts (`45 min` under
                 // `Duration (h)`): which is right cannot be known.
                 if let (Some(u), Some(h)) = (unit, c.table.header_unit("minutes"))
+                    && clock_header.is_none()
                     && u != header_unit
                 {
                     conflicts.push(UnitConflict {
@@ -1909,6 +1923,18 @@ pub fn parse_activity(
                 c.table
                     .recognised("durations with their units (`45 min`, `1 h 15 min`)");
                 m
+            }
+            WrittenDuration::Ambiguous(a, b)
+                if let Some(h) = clock_header.filter(|h| h.matches(':').count() == 1) =>
+            {
+                c.table.recognised(format!(
+                    "durations with one colon read as `{h}`, as the duration column's header says"
+                ));
+                if h.starts_with('h') {
+                    a * 60.0 + b
+                } else {
+                    a + b / 60.0
+                }
             }
             WrittenDuration::Ambiguous(m, sec) if mmss_note.is_some() => {
                 c.table.recognised(mmss_note.clone().expect("checked"));

@@ -239,11 +239,13 @@ pub const ACTIVITY: FileSpec = FileSpec {
         ("mets", "met"),
         ("step_count", "steps"),
     ],
-    // Seconds too (`Duration (s)`, as workout exports write it): converted to minutes.
+    // Seconds too (`Duration (s)`, as workout exports write it): converted to minutes. A
+    // clock pattern (`Duration (h:mm)`) says how the column's clock durations are written.
     header_units: &[(
         "minutes",
         &[
-            "min", "mins", "minutes", "h", "hr", "hours", "s", "sec", "secs", "seconds",
+            "min", "mins", "minutes", "h", "hr", "hours", "s", "sec", "secs", "seconds", "h:mm",
+            "hh:mm", "h:mm:ss", "hh:mm:ss", "mm:ss", "m:ss",
         ],
         None,
     )],

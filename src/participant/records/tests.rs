@@ -2293,3 +2293,25 @@ fn summary_rows_at_the_foot_are_left_out_with_a_note_and_two_unit_columns_read_t
         "{notes:#?}"
     );
 }
+
+/// A header that says how its clock durations are written (`Duration (h:mm)`, `Duration
+/// (mm:ss)`): the file was refused, the unit not understood; and without it a one-colon
+/// duration that fits both readings was dropped. A bare number under such a header could be
+/// minutes, hours or seconds, and costs its row.
+#[test]
+fn a_header_naming_the_clock_form_of_its_durations_tells_their_reading() {
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h:mm)\n2026-05-04,brisk walk,0:45\n2026-05-05,Yoga,1:10\n2026-05-06,Yoga,40\n",
+    );
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [45.0, 70.0]);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(4), Some(3)));
+    assert_eq!(diags[0].found.as_deref(), Some("`40`"));
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (mm:ss)\n2026-05-04,brisk walk,12:30\n2026-05-05,Yoga,1:10:00\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [12.5, 70.0]);
+}
