@@ -1102,7 +1102,8 @@ fn read_records(
             // a standard scale export end "with warnings". A header one or two letters from one
             // of ours, or holding one of ours as a word (`sorce`, `Weight 2`), may be ours
             // misspelt and keeps its warning.
-            None if !near_ours(&key, spec) => {
+            // An activity's start beside its date column is no misspelt column either.
+            None if !near_ours(&key, spec) || (start_beside_date && is_start(&key)) => {
                 unnamed.push(i);
                 ignored.push(format!("`{name}`"));
             }

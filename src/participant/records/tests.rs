@@ -2231,6 +2231,14 @@ fn an_activity_file_with_start_and_end_and_no_duration_reads_end_less_start() {
         diags[0].found.as_deref(),
         Some("start `23:30`, end `00:15`")
     );
+    // A start beside the date column and a duration: read, the start not (the file was
+    // refused, `date` named twice).
+    let (a, diags) = activity_or_error(
+        "Date,Start,Activity,Duration\n2026-05-04,07:10,Walking,45 min\n2026-05-05,18:00,Yoga,40\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 4), 45.0), (d(2026, 5, 5), 40.0)]);
     // A weigh-in file's two columns of dates tell no duration and no date: refused.
     let (w, diags) = read(
         "Start,End,Weight (kg)\n2026-05-04 07:12,2026-05-04 07:13,72.5\n",
