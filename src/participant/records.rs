@@ -10,7 +10,8 @@ use super::quantity::{
     MassUnit, WrittenDuration, WrittenMass, number_prefix_len, split_duration, split_mass,
 };
 use super::table::{
-    Cells, CsvOptions, Dropped, FileCtx, SUMMARY_LABELS, Table, header_key, is_label, read_table,
+    Cells, CsvOptions, Dropped, FileCtx, SUMMARY_LABELS, Table, When, header_key, is_label,
+    read_table,
 };
 use crate::activities;
 use crate::diag::{Diagnostic, Severity};
@@ -1733,6 +1734,86 @@ fn as_written(c: &Cells<'_>, col: &str, value: f64, unit: &str) -> String {
     }
 }
 
+/// An activity's minutes from its start (the date column) and its end (`end`), both
+/// date-times: the row is dropped, with a warning at the end's cell, when either has no time
+/// of day, the end is before the start, or the span is longer than one activity can last
+/// ([`MAX_ACTIVITY_MINUTES`]). A span across midnight is dated by the start.
+fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
+    // The row's date was read (and any problem with it named) before the row's values.
+    let day = c.when("date", &mut Vec::new())?;
+    // A start or end beside a date column may be a time of day alone (`07:10`, `7:10 PM`):
+    // on the row's day, or for the end, on the start's day.
+    let time_only = |s: &str| {
+        ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"]
+            .iter()
+            .find_map(|f| NaiveTime::parse_from_str(s, f).ok())
+    };
+    let at = |col: &str, on: NaiveDate, d: &mut Vec<Diagnostic>| -> Option<When> {
+        let raw = c.required_text(col, d)?;
+        match time_only(&raw) {
+            Some(t) => Some(When {
+                date: on,
+                time: Some(t),
+                from_utc: false,
+            }),
+            None => c.when(col, d),
+        }
+    };
+    let start_col = if c.table.column("start").is_some() {
+        "start"
+    } else {
+        "date"
+    };
+    let start = if start_col == "start" {
+        at("start", day.date, d)?
+    } else {
+        day
+    };
+    let end = at("end", start.date, d)?;
+    let (start_raw, end_raw) = (
+        c.text(start_col).unwrap_or_default(),
+        c.text("end").unwrap_or_default(),
+    );
+    let found = format!("start `{start_raw}`, end `{end_raw}`");
+    let (Some(t0), Some(t1)) = (start.time, end.time) else {
+        d.push(
+            c.warn("end", "the activity's start or end has no time of day, so its duration cannot be told; the row is dropped")
+                .expected("a start and an end with their times (`2026-05-04 07:10` to `2026-05-04 07:52`)")
+                .found(found)
+                .hint("export the activities with their start and end times, or with a duration column"),
+        );
+        return None;
+    };
+    let minutes = (end.date.and_time(t1) - start.date.and_time(t0)).num_seconds() as f64 / 60.0;
+    if minutes < 0.0 {
+        d.push(
+            c.warn(
+                "end",
+                "the activity ends before it starts; the row is dropped",
+            )
+            .expected("an end after the start")
+            .found(found)
+            .hint("check the two times of this row (start and end swapped, or a wrong day); an activity across midnight needs its end written with its date"),
+        );
+        return None;
+    }
+    if minutes > MAX_ACTIVITY_MINUTES {
+        d.push(
+            c.warn("end", format!(
+                "the activity lasts {} minutes from start to end, longer than one activity can; the row is dropped",
+                minutes.round()
+            ))
+            .expected(format!("at most {MAX_ACTIVITY_MINUTES} minutes from start to end"))
+            .found(found)
+            .hint("check the end's day; a tracker left running is no activity"),
+        );
+        return None;
+    }
+    c.table
+        .recognised("durations as the time from each activity's start to its end");
+    Some(minutes)
+}
+
 /// Parses `activity.csv`: codes from the activity table, or any label with an explicit `met`.
 pub fn parse_activity(
     text: &str,
@@ -1779,13 +1860,38 @@ pub fn parse_activity(
             c.summary_row(label);
             return None;
         }
-        let header_hours = matches!(c.table.header_unit("minutes"), Some("h" | "hr" | "hours"));
+        // The unit the header names for bare numbers, and minutes per such unit.
+        let (header_unit, per_unit) = match c.table.header_unit("minutes") {
+            Some("h" | "hr" | "hours") => ("h", 60.0),
+            Some("s" | "sec" | "secs" | "seconds") => ("s", 1.0 / 60.0),
+            _ => ("min", 1.0),
+        };
+        // A header that says how its durations are written as clock times (`Duration
+        // (h:mm)`, `Time (mm:ss)`, `Duration (hh:mm:ss)`): it tells a one-colon duration's
+        // reading, and a bare number under it is no such duration.
+        let clock_header = c.table.header_unit("minutes").filter(|u| u.contains(':'));
         declared_rows += usize::from(c.table.header_unit("minutes").is_some());
-        let raw = c.required_text("minutes", d)?;
+        // No duration column, but each activity's end: the minutes are end − start.
+        let from_span = c.table.column("minutes").is_none() && c.table.column("end").is_some();
+        let raw = if from_span {
+            String::new()
+        } else {
+            c.required_text("minutes", d)?
+        };
         let minutes = match split_duration(&raw) {
+            _ if from_span => span_minutes(c, d)?,
+            WrittenDuration::Plain(_) if let Some(h) = clock_header => {
+                d.push(
+                    c.warn("minutes", format!("a number alone under a header of durations written as `{h}`: minutes, hours or seconds cannot be told; the row is dropped"))
+                        .expected(format!("a duration written as `{h}`, or with its unit (`45 min`)"))
+                        .found(format!("`{raw}`"))
+                        .hint("export every duration the same way, or write the unit with the number"),
+                );
+                return None;
+            }
             WrittenDuration::Plain(_) | WrittenDuration::Other => {
                 let v = c.number("minutes", d)?;
-                if header_hours { v * 60.0 } else { v }
+                v * per_unit
             }
             WrittenDuration::Clock(m) => {
                 c.table
@@ -1796,7 +1902,8 @@ pub fn parse_activity(
                 // One unit in the cell that the header contradicts (`45 min` under
                 // `Duration (h)`): which is right cannot be known.
                 if let (Some(u), Some(h)) = (unit, c.table.header_unit("minutes"))
-                    && u != if header_hours { "h" } else { "min" }
+                    && clock_header.is_none()
+                    && u != header_unit
                 {
                     conflicts.push(UnitConflict {
                         line: c.row.line,
@@ -1816,6 +1923,18 @@ pub fn parse_activity(
                 c.table
                     .recognised("durations with their units (`45 min`, `1 h 15 min`)");
                 m
+            }
+            WrittenDuration::Ambiguous(a, b)
+                if let Some(h) = clock_header.filter(|h| h.matches(':').count() == 1) =>
+            {
+                c.table.recognised(format!(
+                    "durations with one colon read as `{h}`, as the duration column's header says"
+                ));
+                if h.starts_with('h') {
+                    a * 60.0 + b
+                } else {
+                    a + b / 60.0
+                }
             }
             WrittenDuration::Ambiguous(m, sec) if mmss_note.is_some() => {
                 c.table.recognised(mmss_note.clone().expect("checked"));
@@ -1941,7 +2060,7 @@ pub fn parse_activity(
     for r in &rows {
         *per_day.entry(r.date).or_default() += r.value.1;
     }
-    let mcol = table.column("minutes");
+    let mcol = table.column("minutes").or(table.column("end"));
     let mut warned = std::collections::BTreeSet::new();
     let mut out = Vec::new();
     for r in rows {

@@ -985,6 +985,15 @@ fn read_records(
     let mut ignored: Vec<String> = Vec::new();
     // Fields the header does not name as one of ours.
     let mut unnamed: Vec<usize> = Vec::new();
+    // An activity's start beside a date column of its own (`Date,Start,End` with times of
+    // day): the start is not the date (see below the loop).
+    let is_start = |k: &str| crate::program::files::ACTIVITY_STARTS.contains(&k);
+    let start_beside_date = spec.name == "activity.csv"
+        && written.iter().any(|w| {
+            let k = header_key(w).0;
+            !is_start(&k)
+                && (k == "date" || spec.aliases.iter().any(|(a, c)| *a == k && *c == "date"))
+        });
     for (i, name) in written.iter().enumerate() {
         let (key, unit) = header_key(name);
         let ours = |k: &str| spec.all_columns().find(|c| *c == k);
@@ -1003,6 +1012,9 @@ fn read_records(
             .map(|m| m.0)
             .or_else(|| ours(&key))
             .or_else(|| alias(&key));
+        if start_beside_date && mapped.is_none() && known == Some("date") && is_start(&key) {
+            known = None;
+        }
         let mut unit = unit;
         // A unit named by the mapping (`"Weight": weight (kg)`) is the unit of a column of
         // bare numbers: applied below, once the file's own columns are known.
@@ -1023,14 +1035,35 @@ fn read_records(
             unit = Some(u.to_string());
         }
         match known {
+            // The same quantity again in another unit its header names (`Weight (kg)`,
+            // `Weight (lb)`: scales that export both): the first column is read, each
+            // header saying its own unit, and the other is named as not read.
+            Some(c)
+                if let Some(&first) = columns.get(c)
+                    && let Some(u) = unit.as_deref()
+                    && units.get(c).is_some_and(|f| f != u) =>
+            {
+                ctx.note(format!(
+                    "columns `{}` and `{name}` give `{c}` in two units; `{}` is read",
+                    written[first], written[first]
+                ));
+                ignored.push(format!("`{name}`"));
+            }
             Some(c) => {
-                if columns.insert(c, i).is_some() {
+                if let Some(first) = columns.insert(c, i) {
                     diags.push(
                         ctx.error(format!(
                             "column `{c}` appears twice in the header; the file is not used"
                         ))
                         .at(header_line, Some(i as u64 + 1))
                         .field(c)
+                        .expected(format!("one column read as `{c}`"))
+                        .found(format!(
+                            "`{}` (column {}) and `{name}` (column {})",
+                            written[first],
+                            first + 1,
+                            i + 1
+                        ))
                         .hint(
                             "keep one column of each name (check `input.columns` in program.yaml)",
                         ),
@@ -1069,7 +1102,8 @@ fn read_records(
             // a standard scale export end "with warnings". A header one or two letters from one
             // of ours, or holding one of ours as a word (`sorce`, `Weight 2`), may be ours
             // misspelt and keeps its warning.
-            None if !near_ours(&key, spec) => {
+            // An activity's start beside its date column is no misspelt column either.
+            None if !near_ours(&key, spec) || (start_beside_date && is_start(&key)) => {
                 unnamed.push(i);
                 ignored.push(format!("`{name}`"));
             }
@@ -1103,6 +1137,71 @@ fn read_records(
             units_from_program.insert(c);
         }
     }
+    // An activity's start and end (`Start`, `End`; `Start Date`, `End Date`): the start dates
+    // the row, and with no duration column the end gives the duration, end − start, read row
+    // by row (`records::parse_activity`). Elsewhere (a weigh-in file with two columns of
+    // dates) nothing tells which date is the measurement's, and the file stays refused below.
+    if spec.name == "activity.csv" {
+        let key_is = |i: usize, keys: &[&str]| keys.contains(&header_key(&written[i]).0.as_str());
+        let starts: Vec<usize> = (0..written.len())
+            .filter(|&i| key_is(i, crate::program::files::ACTIVITY_STARTS))
+            .filter(|i| unnamed.contains(i) || columns.get("date") == Some(i))
+            .collect();
+        let ends: Vec<usize> = unnamed
+            .iter()
+            .copied()
+            .filter(|&i| key_is(i, crate::program::files::ACTIVITY_ENDS))
+            .collect();
+        if usable && let ([s], [e]) = (&starts[..], &ends[..]) {
+            let (s, e) = (*s, *e);
+            // `Date,Start,End`: the date column dates the row, the start and end may be times
+            // of that day.
+            let beside = columns.get("date").is_some_and(|&d| d != s);
+            let mut taken = Vec::new();
+            if !beside {
+                if columns.insert("date", s).is_none() {
+                    renamed.push((written[s].clone(), "date"));
+                }
+                taken.push(s);
+            }
+            if columns.contains_key("minutes") {
+                // The end (and a start beside the date) is not read, and is no column of ours
+                // misspelt: named in the note of columns not read rather than warned about.
+                for i in [s, e].into_iter().filter(|i| !taken.contains(i)) {
+                    if let Some(k) = extra_at.iter().position(|&x| x == i) {
+                        extra_at.remove(k);
+                        extra.remove(k);
+                        ignored.push(format!("`{}`", written[i]));
+                    }
+                }
+            } else {
+                if beside {
+                    columns.insert("start", s);
+                    taken.push(s);
+                }
+                columns.insert("end", e);
+                taken.push(e);
+                ctx.note(format!(
+                    "no duration column: each activity's minutes are its end (`{}`) less its start (`{}`), dated by {}",
+                    written[e],
+                    written[s],
+                    if beside {
+                        "the date column (a start or end written as a time of day is on that day)"
+                    } else {
+                        "the start"
+                    }
+                ));
+            }
+            for i in taken {
+                unnamed.retain(|&u| u != i);
+                ignored.retain(|n| *n != format!("`{}`", written[i]));
+                if let Some(k) = extra_at.iter().position(|&x| x == i) {
+                    extra_at.remove(k);
+                    extra.remove(k);
+                }
+            }
+        }
+    }
     // Dates written as rows of their own above the measurements, which have only a time of
     // day (`Time,Weight,…` / `" Nov 25, 2026",` / `7:12 AM,72.5 kg,…`: a smart scale app's
     // export): whether they are is known once the rows are read.
@@ -1131,6 +1230,8 @@ fn read_records(
         .filter(|c| {
             !(**c == "date" && (time_for_date_rows.is_some() || !date_by_content.is_empty()))
         })
+        // An end column stands for the duration (see above).
+        .filter(|c| !(**c == "minutes" && columns.contains_key("end")))
         // A unit in the value column's header stands for the unit column.
         .filter(|c| {
             !spec
@@ -1392,6 +1493,17 @@ fn read_records(
         } else {
             true
         };
+        // A summary written across the row's fields as one (`Average: 88.15 kg`, `Total 510`
+        // below the rows): no measurement, and no row of the wrong shape either.
+        if !fits
+            && let Some(f) = rec.iter().map(str::trim).find(|f| !f.is_empty())
+            && starts_as_summary(f)
+        {
+            let mut rows = table.summary_rows.borrow_mut();
+            rows.0 += 1;
+            rows.1.get_or_insert((line, shorten(f, 40)));
+            continue;
+        }
         if !fits {
             let mut d = ctx
                 .warning(format!(
@@ -1468,9 +1580,15 @@ fn read_records(
             .copied()
             .filter(|&i| {
                 // Nine in ten at least: a typing error in one cell costs its row (with the
-                // date's own warning), not the file.
+                // date's own warning), not the file. Rows summing up the others (`Average`,
+                // `Total change` below the dates) are no cells of dates or of anything else.
                 let (mut cells, mut dates) = (0usize, 0usize);
-                for c in table.rows.iter().filter_map(|r| table.field(r, i)) {
+                for c in table
+                    .rows
+                    .iter()
+                    .filter_map(|r| table.field(r, i))
+                    .filter(|c| !is_summary_date(c))
+                {
                     cells += 1;
                     dates +=
                         usize::from(parse_when(c, opts).is_some() || numeric_parts(c).is_some());
@@ -2397,6 +2515,37 @@ pub fn is_label(text: &str, labels: &[&str]) -> bool {
     labels.contains(&t.as_str())
 }
 
+/// Whether `text`, where a row's date would be, labels a row that sums up the others: one of
+/// [`SUMMARY_LABELS`], or a short phrase without digits that starts or ends with one (`Total
+/// change`, `Weekly average`, `Grand total:`).
+pub fn is_summary_date(text: &str) -> bool {
+    if is_label(text, &SUMMARY_LABELS) {
+        return true;
+    }
+    let t = text.trim().trim_end_matches(':').to_lowercase();
+    let words: Vec<&str> = t.split_whitespace().collect();
+    !t.chars().any(|c| c.is_ascii_digit())
+        && (2..=4).contains(&words.len())
+        && [words[0], words[words.len() - 1]]
+            .iter()
+            .any(|w| SUMMARY_LABELS.contains(w))
+}
+
+/// Whether `text` starts with a word of [`SUMMARY_LABELS`] standing alone (`Average: 88.15
+/// kg`, `Total 510 kcal`, `Daily total: 1,840`), as a summary written in one field begins.
+fn starts_as_summary(text: &str) -> bool {
+    let t = text.to_lowercase();
+    let words: Vec<&str> = t
+        .split(|c: char| c.is_whitespace() || c == ':' || c == '=')
+        .filter(|w| !w.is_empty())
+        .collect();
+    match words.as_slice() {
+        ["daily", "total", ..] => true,
+        [first, ..] => SUMMARY_LABELS.contains(first),
+        [] => false,
+    }
+}
+
 /// A bad value that was warned about and left out.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Dropped;
@@ -2507,7 +2656,7 @@ impl Cells<'_> {
             }
             // A row that sums up the others (`Average`, `Total` where the date would be) is no
             // measurement: left out, and counted for the file's note.
-            None if is_label(s, &SUMMARY_LABELS) => {
+            None if is_summary_date(s) => {
                 self.summary_row(s);
                 None
             }
@@ -2571,7 +2720,10 @@ impl Cells<'_> {
     pub fn summary_row(&self, label: &str) {
         let mut rows = self.table.summary_rows.borrow_mut();
         rows.0 += 1;
-        rows.1.get_or_insert((self.row.line, label.to_string()));
+        // The first in the file: rows summed up in one field are counted while reading.
+        if rows.1.as_ref().is_none_or(|(l, _)| *l > self.row.line) {
+            rows.1 = Some((self.row.line, label.to_string()));
+        }
     }
 
     /// A numeric date (`13/05/2026`) in the order found for the file (see [`NumericOrder`]),

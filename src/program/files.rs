@@ -239,12 +239,46 @@ pub const ACTIVITY: FileSpec = FileSpec {
         ("mets", "met"),
         ("step_count", "steps"),
     ],
+    // Seconds too (`Duration (s)`, as workout exports write it): converted to minutes. A
+    // clock pattern (`Duration (h:mm)`) says how the column's clock durations are written.
     header_units: &[(
         "minutes",
-        &["min", "mins", "minutes", "h", "hr", "hours"],
+        &[
+            "min", "mins", "minutes", "h", "hr", "hours", "s", "sec", "secs", "seconds", "h:mm",
+            "hh:mm", "h:mm:ss", "hh:mm:ss", "mm:ss", "m:ss",
+        ],
         None,
     )],
 };
+
+/// Headers of an activity's start and of its end (after [`header_key`]). An activity file
+/// with one of each and no duration column has its durations read as end − start, dated by
+/// the start; with a duration column, the start dates the row.
+pub const ACTIVITY_STARTS: &[&str] = &[
+    "start",
+    "start_time",
+    "start_date",
+    "start_datetime",
+    "start_date_time",
+    "started",
+    "started_at",
+    "begin",
+    "begin_time",
+];
+/// See [`ACTIVITY_STARTS`].
+pub const ACTIVITY_ENDS: &[&str] = &[
+    "end",
+    "end_time",
+    "end_date",
+    "end_datetime",
+    "end_date_time",
+    "ended",
+    "ended_at",
+    "finish",
+    "finish_time",
+    "stop",
+    "stop_time",
+];
 /// `sessions.csv`.
 pub const SESSIONS: FileSpec = FileSpec {
     name: "sessions.csv",

@@ -54,6 +54,23 @@ const SHAPES: &[(&str, usize, bool)] = &[
     // `Start Time` and `Workout Type`: refused, no `date` or `activity` column.
     ("activity-workout-start-time.csv", 3, false),
     ("activity-mmss-durations.csv", 3, false),
+    // A smart scale's body-composition export in lb, blank rows of delimiters at the end.
+    ("weights-scale-lb-body-composition-blank-tail.csv", 5, false),
+    ("weights-semicolon-decimal-comma-dotted-dates.csv", 4, false),
+    // A spreadsheet saved as Unicode text: UTF-16 with a byte-order mark, tabs, CRLF.
+    ("weights-spreadsheet-utf16-tabs.csv", 4, false),
+    // `Average` and `Total change` under a date column named `Measured`: the date column,
+    // found by its cells, was not found (5 dates of 7 cells), and the file was refused.
+    ("weights-summary-below-unnamed-date.csv", 5, false),
+    ("weights-clinic-visit-notes-multiline.csv", 4, false),
+    ("intake-food-diary-per-item-daily-total.csv", 2, false),
+    ("intake-semicolon-decimal-comma-totals.csv", 4, false),
+    ("activity-duration-words-total-row.csv", 5, false),
+    // `Start`, `End` and no duration: refused for a missing `minutes` column.
+    ("activity-start-end-no-duration.csv", 5, false),
+    // `Duration (s)`: refused, the unit not understood; then `Start Date` and `End Date`
+    // both held dates.
+    ("activity-workouts-seconds-start-end.csv", 3, false),
 ];
 
 const PROGRAM: &str = "format_version: 1
@@ -442,5 +459,85 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
     assert_eq!(
         got["activity-hms-durations.csv"].activity[1].1,
         "Cycling, moderate"
+    );
+
+    // The second corpus: exports as a programme administrator receives them.
+    let lb = kg("weights-scale-lb-body-composition-blank-tail.csv");
+    same(
+        lb,
+        &[201.4 * LB, 200.8 * LB, 200.2 * LB, 199.6 * LB, 199.9 * LB],
+    );
+    assert_eq!(
+        days("weights-scale-lb-body-composition-blank-tail.csv"),
+        [d(5, 4), d(5, 5), d(5, 7), d(5, 9), d(5, 11)]
+    );
+    same(
+        kg("weights-semicolon-decimal-comma-dotted-dates.csv"),
+        &[84.3, 84.1, 83.9, 84.0],
+    );
+    assert_eq!(
+        days("weights-semicolon-decimal-comma-dotted-dates.csv"),
+        [d(5, 4), d(5, 5), d(5, 6), d(5, 8)]
+    );
+    same(
+        kg("weights-spreadsheet-utf16-tabs.csv"),
+        &[91.2, 90.6, 90.1, 89.8],
+    );
+    assert_eq!(
+        days("weights-spreadsheet-utf16-tabs.csv"),
+        [d(5, 2), d(5, 9), d(5, 16), d(5, 23)]
+    );
+    same(
+        kg("weights-summary-below-unnamed-date.csv"),
+        &[88.4, 87.9, 87.5, 87.6, 87.0],
+    );
+    same(
+        kg("weights-clinic-visit-notes-multiline.csv"),
+        &[96.4, 95.1, 94.7, 94.0],
+    );
+    assert_eq!(
+        days("weights-clinic-visit-notes-multiline.csv"),
+        [d(5, 6), d(5, 20), d(6, 3), d(6, 17)]
+    );
+    // Food items summed per day (190 + 92 + 380 + 80 + 610 + 110 = 1462), the `Daily Total`
+    // rows not added to them.
+    let items = intake("intake-food-diary-per-item-daily-total.csv");
+    assert_eq!(items.len(), 2, "{items:?}");
+    assert!(
+        close(items[0].1, 1462.0) && close(items[1].1, 806.0),
+        "{items:?}"
+    );
+    assert!(
+        close(items[0].2.unwrap(), 74.4) && close(items[1].2.unwrap(), 58.1),
+        "{items:?}"
+    );
+    let semi = intake("intake-semicolon-decimal-comma-totals.csv");
+    let kcal: Vec<f64> = semi.iter().map(|x| x.1).collect();
+    same(kcal, &[1850.5, 2010.0, 1725.8, 1940.2]);
+    let words = minutes("activity-duration-words-total-row.csv");
+    same(words, &[45.0, 70.0, 30.0, 32.25, 50.0]);
+    // End − start, dated by the start; 23:30 to 00:15 is 45 minutes on 7 May.
+    assert_eq!(
+        got["activity-start-end-no-duration.csv"]
+            .activity
+            .iter()
+            .map(|a| (a.0, a.2))
+            .collect::<Vec<_>>(),
+        [
+            (d(5, 4), 42.5),
+            (d(5, 5), 70.0),
+            (d(5, 6), 40.0),
+            (d(5, 7), 45.0),
+            (d(5, 9), 32.0)
+        ]
+    );
+    // 2700 s = 45 min; the start dates the row.
+    assert_eq!(
+        got["activity-workouts-seconds-start-end.csv"]
+            .activity
+            .iter()
+            .map(|a| (a.0, a.2))
+            .collect::<Vec<_>>(),
+        [(d(5, 4), 45.0), (d(5, 5), 40.0), (d(5, 6), 30.0)]
     );
 }

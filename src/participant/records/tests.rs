@@ -2151,3 +2151,175 @@ fn a_steps_only_activity_file_says_why_and_what_to_add() {
         "{hint}"
     );
 }
+
+/// Workout exports that give each activity's start and end and no duration (`Start`, `End`):
+/// the file was refused for a missing `minutes` column. The minutes are end − start, dated by
+/// the start (across midnight too); a row whose end is before its start, that spans more than
+/// one activity can last, or whose end has no time of day is dropped with a warning at the
+/// end's cell. The same columns in a weigh-in file stay refused, naming both.
+#[test]
+fn an_activity_file_with_start_and_end_and_no_duration_reads_end_less_start() {
+    let (a, diags) = activity_or_error(
+        "Activity,Start,End,Distance (km)\n\
+         Walking,2026-05-04 07:10:00,2026-05-04 07:52:30,3.6\n\
+         Walking,2026-05-07 23:30,2026-05-08 00:15,3.4\n\
+         Yoga,2026-05-09T19:00:00+01:00,2026-05-09T19:40:00+01:00,\n\
+         Walking,2026-05-10 08:00,2026-05-10 07:30,2.0\n\
+         Walking,2026-05-11 08:00,2026-05-12 09:00,9.0\n\
+         Walking,2026-05-13 08:00,2026-05-13,2.0\n\
+         Walking,2026-05-14 08:00,,2.0\n",
+    );
+    let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(
+        got,
+        [
+            (d(2026, 5, 4), 42.5),
+            (d(2026, 5, 7), 45.0),
+            (d(2026, 5, 9), 40.0)
+        ]
+    );
+    let at: Vec<(Option<u64>, Option<u64>)> = diags.iter().map(|x| (x.line, x.column)).collect();
+    assert_eq!(
+        at,
+        [
+            (Some(5), Some(3)),
+            (Some(6), Some(3)),
+            (Some(7), Some(3)),
+            (Some(8), Some(3))
+        ],
+        "{diags:#?}"
+    );
+    assert_eq!(
+        diags[0].message,
+        "the activity ends before it starts; the row is dropped"
+    );
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("start `2026-05-10 08:00`, end `2026-05-10 07:30`")
+    );
+    assert!(
+        diags[1].message.contains("lasts 1500 minutes"),
+        "{}",
+        diags[1]
+    );
+    assert!(diags[2].message.contains("no time of day"), "{}", diags[2]);
+    assert_eq!(diags[3].message, "`end` is empty; the row is dropped");
+    // With a duration column, the start dates the row and the end is not read.
+    let (a, diags) = activity_or_error(
+        "Workout Type,Start Date,End Date,Duration (s)\n\
+         Walking,2026-05-04 07:10:00 +0100,2026-05-04 07:55:00 +0100,2700\n\
+         Yoga,2026-05-05 23:40:00 +0100,2026-05-06 00:20:00 +0100,2400\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 4), 45.0), (d(2026, 5, 5), 40.0)]);
+    // A date column of its own beside the start and end, which are times of that day: the
+    // file was refused, `date` named twice (`Date` and `Start Time`). A time-only end before
+    // its start is not taken to be after midnight.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Start Time,End Time
+         2026-05-04,Walking,07:10,07:52
+         2026-05-05,Yoga,7:00 PM,7:40 PM
+         2026-05-06,Walking,23:30,00:15
+",
+    );
+    let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 4), 42.0), (d(2026, 5, 5), 40.0)]);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(4), Some(4)));
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("start `23:30`, end `00:15`")
+    );
+    // A start beside the date column and a duration: read, the start not (the file was
+    // refused, `date` named twice).
+    let (a, diags) = activity_or_error(
+        "Date,Start,Activity,Duration\n2026-05-04,07:10,Walking,45 min\n2026-05-05,18:00,Yoga,40\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 4), 45.0), (d(2026, 5, 5), 40.0)]);
+    // A weigh-in file's two columns of dates tell no duration and no date: refused.
+    let (w, diags) = read(
+        "Start,End,Weight (kg)\n2026-05-04 07:12,2026-05-04 07:13,72.5\n",
+        &window(),
+    );
+    assert!(w.is_none());
+    assert!(
+        diags[0]
+            .hint
+            .as_deref()
+            .is_some_and(|h| h.starts_with("columns `Start` and `End` each hold dates")),
+        "{diags:#?}"
+    );
+}
+
+/// Summary rows at the foot of a weigh-in export: a phrase in the date column (`Total change`,
+/// `Weekly average`), or the whole summary in one field (`Average: 88.15 kg`). They are left
+/// out with a note naming the first one's line, not read, warned about as rows of the wrong
+/// shape, or counted against a date column found by its cells (which refused the file: 5
+/// dates of 7 cells). Scales that export the weight in kg and in lb are read from the first.
+#[test]
+fn summary_rows_at_the_foot_are_left_out_with_a_note_and_two_unit_columns_read_the_first() {
+    let read_noted = |text: &str| {
+        let ctx = ctx("weights.csv");
+        let mut diags = Vec::new();
+        let w = parse_weights(text, &CsvOptions::default(), &ctx, &window(), &mut diags);
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        (w, diags, notes)
+    };
+    let (w, diags, notes) = read_noted(
+        "Measured,Weight (kg),Change (kg)\n2026-05-04,88.4,\n2026-05-11,87.9,-0.5\n\
+         2026-05-18,87.5,-0.4\n2026-05-25,87.6,0.1\n2026-06-01,87.0,-0.6\n,,\n\
+         Weekly average,87.7,\nTotal change,,-1.4\nAverage: 87.7 kg\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kg: Vec<f64> = w.unwrap().iter().map(|x| x.weight.kg()).collect();
+    assert_eq!(kg, [88.4, 87.9, 87.5, 87.6, 87.0]);
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("3 rows summing up the others (`Weekly average` on line 8)")),
+        "{notes:#?}"
+    );
+    // A word that only contains a label, or a label with digits, is no summary: a date that
+    // cannot be read, warned about at its cell.
+    let (w, diags, _) =
+        read_noted("Date,Weight (kg)\n2026-05-04,88.4\n2026-05-11,87.9\nTotals 2026,87.7\n");
+    assert_eq!(w.unwrap().len(), 2);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(4), Some(1)));
+    let (w, diags, notes) = read_noted(
+        "Date,Weight (kg),Weight (lb),BMI\n2026-05-04,88.4,194.9,29.1\n2026-05-11,87.9,193.8,28.9\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kg: Vec<f64> = w.unwrap().iter().map(|x| x.weight.kg()).collect();
+    assert_eq!(kg, [88.4, 87.9]);
+    assert!(
+        notes.iter().any(|n| n
+            == "columns `Weight (kg)` and `Weight (lb)` give `weight` in two units; `Weight (kg)` is read"),
+        "{notes:#?}"
+    );
+}
+
+/// A header that says how its clock durations are written (`Duration (h:mm)`, `Duration
+/// (mm:ss)`): the file was refused, the unit not understood; and without it a one-colon
+/// duration that fits both readings was dropped. A bare number under such a header could be
+/// minutes, hours or seconds, and costs its row.
+#[test]
+fn a_header_naming_the_clock_form_of_its_durations_tells_their_reading() {
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h:mm)\n2026-05-04,brisk walk,0:45\n2026-05-05,Yoga,1:10\n2026-05-06,Yoga,40\n",
+    );
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [45.0, 70.0]);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(4), Some(3)));
+    assert_eq!(diags[0].found.as_deref(), Some("`40`"));
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (mm:ss)\n2026-05-04,brisk walk,12:30\n2026-05-05,Yoga,1:10:00\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [12.5, 70.0]);
+}
