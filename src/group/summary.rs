@@ -1064,6 +1064,20 @@ pub(super) fn build(
                 .unwrap_or_default()
         };
         link_nested_counts(&mut table, drafts_of(), enrolled.len(), min);
+        // The whole program's headline counts: hidden against an earlier release, each is
+        // printed as its band (see `headline_band`) unless the band narrows something.
+        let headline: BTreeSet<CellId> = HEADLINE_KINDS
+            .iter()
+            .filter_map(|k| program.cells.get(k).copied())
+            .collect();
+        let band_it = |table: &mut CellTable, c: CellId| {
+            if headline.contains(&c) {
+                let (lo, hi) = headline_band(table.value(c), min);
+                table.set_band(c, lo, hi);
+            } else {
+                table.force_hide(c);
+            }
+        };
         let mut no_range: BTreeSet<CellId> = BTreeSet::new();
         // The notes that say "Shown only as a range", with their cells: a count hidden against
         // an earlier release can end with no range at all (hidden further, or its range
@@ -1111,7 +1125,7 @@ pub(super) fn build(
                         && !prior_counts.contains(&set)
                         && prior_counts.iter().any(isolates)
                     {
-                        table.force_hide(c);
+                        band_it(&mut table, c);
                         changed = true;
                         ranged_notes.push((audit_notes.len(), c));
                         audit_notes.push(AuditNote {
@@ -1195,7 +1209,7 @@ pub(super) fn build(
                                 (table.priority(c), touching)
                             });
                             if let Some(c) = hide {
-                                table.force_hide(c);
+                                band_it(&mut table, c);
                                 changed = true;
                                 let (section, k) = where_is[&c].clone();
                                 ranged_notes.push((audit_notes.len(), c));
@@ -1212,6 +1226,7 @@ pub(super) fn build(
                                 leak.blame.iter().find(|c| !no_range.contains(c))
                             {
                                 no_range.insert(c);
+                                table.drop_band(c);
                                 changed = true;
                                 let (section, k) = where_is[&c].clone();
                                 audit_notes.push(AuditNote {
@@ -1242,6 +1257,7 @@ pub(super) fn build(
                             }
                             if table.is_suppressed(c) {
                                 no_range.insert(c);
+                                table.drop_band(c);
                                 changed = true;
                             }
                             let (section, k) = where_is[&c].clone();
@@ -1822,6 +1838,29 @@ impl Line {
             Line::Week(w) => format!("mean change in week {}", w + 1),
         }
     }
+}
+
+/// The whole program's headline counts that are printed as a band rather than hidden when
+/// an earlier release would give away the difference (enrolment, the number started and
+/// with a recent weigh-in, retention's numerator): a sponsor needs them every month.
+const HEADLINE_KINDS: [Kind; 4] = [
+    Kind::Enrolled,
+    Kind::Started,
+    Kind::WithOutcome,
+    Kind::Retained,
+];
+
+/// The band a headline count `n` is printed in when an earlier release would give away its
+/// difference: the fixed band of `min − 1` whole numbers holding it (at least 3), counted
+/// from 0 — with the default minimum of 11, 70 to 79, 80 to 89. Fixed bands (not centred on
+/// `n`) give the same band for the same count in every release, so a reader comparing two
+/// releases learns only that the counts differ by less than two bands, never a difference
+/// narrowed to fewer than three values (project rule; rounding to a base is common practice
+/// in statistical disclosure control).
+pub(super) fn headline_band(n: u64, min: u32) -> (u64, u64) {
+    let width = u64::from(min.saturating_sub(1)).max(3);
+    let lo = n / width * width;
+    (lo, lo + width - 1)
 }
 
 /// The token standing for one person in the audit and the ledger.

@@ -39,6 +39,10 @@ struct Cell {
     /// people are nested (see [`CellTable::add_difference`]). Always hidden, never a
     /// complement, and never given a printed "1 to min − 1" bound.
     phantom: bool,
+    /// A band the report prints for this hidden cell whatever the other figures give (see
+    /// [`CellTable::set_band`]): the reader knows the count lies in it, so the range programs
+    /// do too.
+    band: Option<(u64, u64)>,
 }
 
 /// One additive relation `total = Σ parts` between cells.
@@ -121,6 +125,7 @@ impl CellTable {
             suppressed: false,
             unbounded: false,
             phantom: false,
+            band: None,
         });
         self.seen.push((value as f64, value as f64));
         self.cells.len() - 1
@@ -141,6 +146,7 @@ impl CellTable {
             suppressed: true,
             unbounded: true,
             phantom: true,
+            band: None,
         });
         self.seen.push((value as f64, value as f64));
         let d = self.cells.len() - 1;
@@ -297,6 +303,26 @@ impl CellTable {
     /// earlier release would give it away by subtraction.
     pub fn force_hide(&mut self, c: CellId) {
         self.cells[c].suppressed = true;
+    }
+
+    /// Hides cell `c` and publishes the band `lo ..= hi` (which must hold its value) in its
+    /// place: the range programs then take it as known, so every range and the narrow check
+    /// allow for it, and [`CellTable::apply_with_ranges`] drops it again when it narrows a
+    /// hidden count to fewer than three values. The points seen before are forgotten (a band
+    /// can rule them out).
+    pub fn set_band(&mut self, c: CellId, lo: u64, hi: u64) {
+        debug_assert!(lo <= self.cells[c].value && self.cells[c].value <= hi);
+        self.cells[c].suppressed = true;
+        self.cells[c].band = Some((lo, hi));
+        for (s, cell) in self.seen.iter_mut().zip(&self.cells) {
+            *s = (cell.value as f64, cell.value as f64);
+        }
+    }
+
+    /// Takes back the band of cell `c` ([`CellTable::set_band`]): the reader is no longer
+    /// told it.
+    pub fn drop_band(&mut self, c: CellId) {
+        self.cells[c].band = None;
     }
 
     /// True when the cell is hidden because its own value is 1 … min − 1 (primary
@@ -508,6 +534,18 @@ impl CellTable {
                 }
                 continue;
             }
+            // Then the printed bands linked to it.
+            let banded: Vec<CellId> = self
+                .hidden_component(u)
+                .into_iter()
+                .filter(|&m| self.cells[m].band.is_some())
+                .collect();
+            if !banded.is_empty() {
+                for m in banded {
+                    self.cells[m].band = None;
+                }
+                continue;
+            }
             self.refresh_costs();
             match self.complement_near(u) {
                 Some(c) => self.cells[c].suppressed = true,
@@ -697,7 +735,9 @@ impl CellTable {
 
     /// The bounds a hidden cell's variable has in the range programs.
     fn box_of(&self, c: CellId, min_cell_size: u32) -> (f64, f64) {
-        if self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
+        if let Some((lo, hi)) = self.cells[c].band {
+            (lo as f64, hi as f64)
+        } else if self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
             (1.0, f64::from(min_cell_size) - 1.0)
         } else {
             (0.0, f64::INFINITY)
