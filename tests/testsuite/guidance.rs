@@ -267,6 +267,9 @@ fn every_sample_participants_options_follow_the_rules() {
     );
     assert_eq!(*phase, Phase::Clinician);
     assert!(g.options.is_empty());
+    // Her loss milestones are not shown as achievements beside the flags.
+    let (_, _, _, ctx) = &s.people["SG-050"];
+    assert!(ctx.milestones.is_empty(), "{:?}", ctx.milestones.len());
     let (state, _, g, _) = &s.people["SG-051"];
     assert!(state.older);
     assert!(
