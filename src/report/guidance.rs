@@ -939,7 +939,7 @@ fn maintain_sentence(
     // floor, which holds whatever the figure.
     if f.implied.is_none() {
         return Some(format!(
-            "How much you would need to eat to hold your weight is not known from your records this month: that figure comes from your weight trend over the last four weeks, which does not give one this month. An estimate from a published equation and a typical activity level can be several hundred kcal a day off for one person, so this report gives none. Your weekly weigh-ins are the best guide: a steady weight means you are eating about what you use. Please do not eat less than {} a day without talking to a licensed clinician.",
+            "How much you would need to eat to hold your weight is not known from your records this month: that figure comes from your weight trend over the last four weeks, which does not give one now. An estimate from a published equation and a typical activity level can be several hundred kcal a day off for one person, so this report gives none. Your weekly weigh-ins are the best guide: a steady weight means you are eating about what you use. Please do not eat less than {} a day without talking to a licensed clinician.",
             fmt::kcal(floor)
         ));
     }
