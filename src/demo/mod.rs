@@ -34,7 +34,9 @@ pub struct DemoOptions {
     pub participants: usize,
     /// Seed of the random numbers; the same seed gives the same bytes.
     pub seed: u64,
-    /// Plant the realistic input errors (and the folder without a profile).
+    /// Plant the realistic input errors (and the folder without a profile), and add the two
+    /// participants who show the cautions the rest never reach ([`sim::SHOWCASE`]: a fast
+    /// loser and a 72-year-old, after the folder without a profile).
     pub with_defects: bool,
 }
 
@@ -52,7 +54,8 @@ impl Default for DemoOptions {
 /// What [`generate`] wrote.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct DemoSummary {
-    /// Participants with a profile (the folder planted without one is not counted).
+    /// Participants with a profile (the folder planted without one is not counted; the
+    /// showcase participants are).
     pub participants: usize,
     /// Files written, program.yaml included.
     pub files: usize,
@@ -129,7 +132,7 @@ pub fn generate(out: &Path, opts: &DemoOptions) -> io::Result<DemoSummary> {
         bytes += buf.len() as u64;
     }
     Ok(DemoSummary {
-        participants: opts.participants,
+        participants: plans.len(),
         files,
         bytes,
     })

@@ -96,6 +96,48 @@ pub enum Defect {
     UnknownActivity,
 }
 
+/// A participant added to a program with planted errors (the bundled sample) so that its
+/// reports show cautions the rest of the cohort never reaches. Both are fictional and set by
+/// hand rather than drawn, and come after everyone else (after the folder without a profile),
+/// so adding them changed no other participant's records.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Showcase {
+    /// Keeps to half the program's deficit for four and a half months, then eats far less
+    /// (1,250 kcal a day below her starting maintenance) from mid-August: a loss above 1 % of
+    /// body weight, and above 1 kg, a week through September, with a food log below the floor.
+    FastLoser,
+    /// Aged 72 at enrolment, BMI 34, adherence fading as for most: the age cautions.
+    Older,
+}
+
+/// Name, sex, site (index into `SITES`), course and starting BMI of each [`Showcase`]
+/// participant, in the order they are added.
+pub const SHOWCASE: [(Showcase, &str, Sex, usize, CourseKind, f64); 2] = [
+    (
+        Showcase::FastLoser,
+        "Ingrid Achebe-Morrow",
+        Sex::Female,
+        0,
+        CourseKind::Adherer,
+        38.0,
+    ),
+    (
+        Showcase::Older,
+        "Bartholomew Quaye-Lindgren",
+        Sex::Male,
+        2,
+        CourseKind::Drifter,
+        34.0,
+    ),
+];
+
+/// Day of the program (0 = enrolment) from which the [`Showcase::FastLoser`] eats far less.
+const CRASH_FROM_DAY: f64 = 140.0;
+/// How far below the starting maintenance the [`Showcase::FastLoser`] then eats, kcal/d.
+const CRASH_DEFICIT: f64 = 1250.0;
+/// Age at enrolment of the [`Showcase::Older`] participant.
+const OLDER_AGE: i64 = 72;
+
 /// All defects that go into participant files, in assignment order.
 pub const ROW_DEFECTS: [Defect; 7] = [
     Defect::LbInKgFile,
@@ -154,6 +196,8 @@ pub struct Plan {
     pub intake_layout: IntakeLayout,
     /// Defects planted in this participant's files.
     pub defects: Vec<Defect>,
+    /// Added to show a caution (see [`Showcase`]); `None` for everyone else.
+    pub showcase: Option<Showcase>,
 }
 
 /// Participant id for a 0-based position.
@@ -295,8 +339,32 @@ pub fn plan_cohort(n: usize, seed: u64, with_defects: bool) -> Vec<Plan> {
                 target_override: target[i],
                 intake_layout,
                 defects,
+                showcase: None,
             }
         })
+        .chain(
+            // After the folder without a profile (`participant_id(n)`), so that every id
+            // before them is what it was.
+            SHOWCASE.iter().enumerate().filter(|_| with_defects).map(
+                |(k, &(showcase, name, sex, site, course, _))| Plan {
+                    index: n + 1 + k,
+                    id: participant_id(n + 1 + k),
+                    name: name.to_string(),
+                    sex,
+                    site: SITES[site].0,
+                    site_teams: SITES[site].2,
+                    course,
+                    glycaemia: Glycaemia::Normal,
+                    medication: false,
+                    withdraws: false,
+                    body_fat: false,
+                    target_override: false,
+                    intake_layout: IntakeLayout::KcalOnly,
+                    defects: Vec::new(),
+                    showcase: Some(showcase),
+                },
+            ),
+        )
         .collect()
 }
 
@@ -464,7 +532,13 @@ pub fn simulate(plan: &Plan, scenario: &Scenario, seed: u64) -> Simulated {
     } else {
         scenario.start + Days::new(rng.int(1, 19) as u64)
     };
-    let age = rng.int(24, 63);
+    let age = match plan.showcase {
+        Some(Showcase::Older) => {
+            rng.int(24, 63);
+            OLDER_AGE
+        }
+        _ => rng.int(24, 63),
+    };
     let birth_date = rng.chance(0.8).then(|| {
         let anniversary = enrolled
             .with_year(enrolled.year() - age as i32)
@@ -494,6 +568,10 @@ pub fn simulate(plan: &Plan, scenario: &Scenario, seed: u64) -> Simulated {
     } else {
         rng.uniform(40.0, 44.0)
     };
+    let bmi0 = SHOWCASE
+        .iter()
+        .find(|c| Some(c.0) == plan.showcase)
+        .map_or(bmi0, |c| c.5);
     let w0 = bmi0 * (cm / 100.0).powi(2);
     let body_fat_percent = plan.body_fat.then(|| {
         // Deurenberg, Weststrate & Seidell 1991, Br J Nutr 65:105 (adults, male = 1), plus
@@ -545,6 +623,23 @@ pub fn simulate(plan: &Plan, scenario: &Scenario, seed: u64) -> Simulated {
             Box::new(move |_| level)
         }
     };
+    // The fast loser: half the program's deficit, then far less food.
+    let (deficit, adherence): (f64, Box<dyn Fn(f64) -> f64>) =
+        if plan.showcase == Some(Showcase::FastLoser) {
+            let early = 0.5 * deficit;
+            (
+                1.0,
+                Box::new(move |t| {
+                    if t < CRASH_FROM_DAY {
+                        early
+                    } else {
+                        CRASH_DEFICIT
+                    }
+                }),
+            )
+        } else {
+            (deficit, adherence)
+        };
     let weekend_extra = if rng.chance(0.5) {
         rng.uniform(100.0, 300.0)
     } else {
@@ -562,6 +657,9 @@ pub fn simulate(plan: &Plan, scenario: &Scenario, seed: u64) -> Simulated {
 
     let pattern = if host {
         1
+    } else if plan.showcase.is_some() {
+        // Weighs in most days, so the reports have a trend to speak from.
+        0
     } else {
         [0, 1, 1, 1, 1, 2][rng.below(6)]
     };
@@ -573,7 +671,7 @@ pub fn simulate(plan: &Plan, scenario: &Scenario, seed: u64) -> Simulated {
     // Day-to-day scatter of a single weight, 0.5–0.8 kg (from memory; program choice).
     let sigma = rng.uniform(0.5, 0.8);
     let morning = rng.int(360, 500) as u32;
-    let no_log = !host && rng.chance(0.05);
+    let no_log = !host && plan.showcase.is_none() && rng.chance(0.05);
     let p_log0 = if host {
         rng.uniform(0.7, 0.95)
     } else {

@@ -101,15 +101,17 @@ fn different_seeds_give_different_data() {
 fn summary_counts_what_is_on_disk() {
     let (dir, s) = generated(&DemoOptions::default());
     let tree = read_tree(&demo_root(&dir));
-    assert_eq!(s.participants, 48);
+    assert_eq!(s.participants, 50);
     assert_eq!(s.files, tree.len());
     assert_eq!(s.bytes, tree.values().map(|b| b.len() as u64).sum::<u64>());
     let folders: BTreeSet<&str> = tree.keys().filter_map(|k| k.split('/').nth(1)).collect();
-    // 48 participants plus the planted folder without a profile.
-    assert_eq!(folders.len(), 49);
+    // 48 participants, the planted folder without a profile, and the two showcase
+    // participants after it.
+    assert_eq!(folders.len(), 51);
     assert!(folders.contains("SG-001") && folders.contains("SG-048") && folders.contains("SG-049"));
+    assert!(folders.contains("SG-050") && folders.contains("SG-051"));
     let profiles = tree.keys().filter(|k| k.ends_with("/profile.yaml")).count();
-    assert_eq!(profiles, 48);
+    assert_eq!(profiles, 50);
 
     let (dir, s) = generated(&DemoOptions {
         participants: 7,
@@ -120,6 +122,29 @@ fn summary_counts_what_is_on_disk() {
     assert_eq!(s.participants, 7);
     let folders: BTreeSet<&str> = tree.keys().filter_map(|k| k.split('/').nth(1)).collect();
     assert_eq!(folders.len(), 7);
+}
+
+#[test]
+fn the_showcase_participants_lose_fast_and_are_over_70() {
+    // The sample's demo of the cautions the drawn cohort never reaches: SG-050 loses more than
+    // 1 % of her body weight a week, truly, through September (the run flags it as a loss
+    // above 1 kg a week: tests/testsuite/guidance.rs); SG-051 is
+    // 70 or over in September. Without planted errors neither is added.
+    let scenario = Scenario::steady_ground();
+    let plans = sim::plan_cohort(48, 2026, true);
+    assert_eq!(plans.len(), 50);
+    let fast = sim::simulate(&plans[48], &scenario, 2026);
+    assert_eq!(fast.plan.id, "SG-050");
+    let sep1 = (sim::date(2026, 9, 1) - fast.enrolled).num_days() as usize;
+    let tw = &fast.true_weight;
+    for d in (sep1..tw.len() - 7).step_by(7) {
+        let week = tw[d] - tw[d + 7];
+        assert!(week > 0.01 * tw[d], "day {d}: {week} kg");
+    }
+    let older = sim::simulate(&plans[49], &scenario, 2026);
+    assert_eq!(older.plan.id, "SG-051");
+    assert!(older.age >= 70, "{}", older.age);
+    assert_eq!(sim::plan_cohort(48, 2026, false).len(), 48);
 }
 
 #[test]
@@ -338,7 +363,8 @@ fn defects_fit_into_a_tiny_cohort() {
         seed: 9,
         with_defects: true,
     });
-    assert_eq!(s.participants, 3);
+    // The three drawn and the two showcase participants.
+    assert_eq!(s.participants, 5);
     let c = count_defects(&demo_root(&dir));
     assert_eq!(
         (
@@ -715,7 +741,7 @@ fn regenerating_never_deletes_what_was_added_to_or_changed_in_the_participants()
     fs::write(&intake, &cut[..cut.len() / 2]).unwrap();
     fs::remove_dir_all(parts.join("SG-004")).unwrap();
     let s = generate(&root, &opts).unwrap();
-    assert_eq!(s.participants, 6);
+    assert_eq!(s.participants, 6 + 2);
     let (fresh, _) = generated(&opts);
     assert_eq!(tree_hash(&root), tree_hash(&demo_root(&fresh)));
 }
@@ -749,13 +775,15 @@ fn a_larger_cohort_scales() {
         seed: 11,
         with_defects: true,
     });
-    assert_eq!(s.participants, 1000);
+    assert_eq!(s.participants, 1000 + 2);
     let root = demo_root(&dir).join("participants");
     assert!(root.join("SG-999/profile.yaml").exists());
     assert!(root.join("SG-1000/profile.yaml").exists());
     assert!(
         root.join("SG-1001/weights.csv").exists() && !root.join("SG-1001/profile.yaml").exists()
     );
+    // The showcase participants come after the folder without a profile.
+    assert!(root.join("SG-1003/profile.yaml").exists() && !root.join("SG-1004").exists());
     assert!(s.files > 1000 * 4 && s.bytes > 1000 * 5_000, "{s:?}");
 }
 
@@ -768,7 +796,7 @@ fn check_reports_the_planted_defects_and_nothing_else() {
     let report =
         crate::check::check_program(&sample_dir(), NaiveDate::from_ymd_opt(2026, 12, 2).unwrap());
     assert!(!report.program_invalid());
-    assert_eq!(report.usable(), 48);
+    assert_eq!(report.usable(), 50);
     let mut files: Vec<String> = report.all_diagnostics().map(|d| d.file.clone()).collect();
     files.sort();
     assert_eq!(

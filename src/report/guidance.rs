@@ -13,9 +13,9 @@
 //! | 3a | the same at a BMI below `low_bmi_losing_below` (20; from age 70 the higher `low_bmi_losing_below_70_plus`, 22) | `maintain` | that a rise at that BMI is no cause for concern; nothing to stop it |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least` (from age 70 below `loss_bmi_at_least_70_plus`, default 30), or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
-//! | 5a | otherwise, too few recent weigh-ins for a trend | `too_little_data` | as row 4 |
+//! | 5a | otherwise, too few recent weigh-ins for a trend, or a trend too noisy to tell whether the weight is going down, holding or rising (`unclear`) | `too_little_data` | as row 4 |
 //! | 6 | losing, loss still the goal | `keep_going` | encouragement; a caution if the pace may be too fast |
-//! | 7 | plateau, stable or unclear, loss still the goal | `restart_loss` | options to restart a steady loss, each safe at the harmful bound |
+//! | 7 | plateau or stable, loss still the goal | `restart_loss` | options to restart a steady loss, each safe at the harmful bound |
 //!
 //! A clinical flag that does not hold advice (a lab value in the diabetes range) and a
 //! glucose-lowering medicine noted in the profile add a line asking the person to talk to their
@@ -383,9 +383,15 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
         return Phase::Maintain(MaintainWhy::BmiBelowCutoff);
     }
     match s.status {
-        TrendStatus::Insufficient => Phase::TooLittleData,
+        // Options to restart a loss rest on the direction of the last four weeks: with too few
+        // weigh-ins, or a slope too noisy to tell losing from steady or rising, there is none
+        // to size them from (sample program, September, SG-033: "changed little … more regular
+        // weigh-ins would show whether it has levelled off" in the headline, and below it what
+        // it would take to "restart a loss").
+        TrendStatus::Insufficient | TrendStatus::Unclear => Phase::TooLittleData,
         TrendStatus::Losing => Phase::KeepGoing,
-        _ => Phase::RestartLoss,
+        // (A rising trend is decided above.)
+        TrendStatus::Plateau | TrendStatus::Stable | TrendStatus::Regaining => Phase::RestartLoss,
     }
 }
 
@@ -708,9 +714,11 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
         }
         Phase::TooLittleData => {
             let mut g = empty(phase, "What to try next", floor);
-            g.paragraphs.push(
-                "There are not enough recent weigh-ins to see how your weight is moving, so this report makes no suggestions this month.".into(),
-            );
+            g.paragraphs.push(if state.status == TrendStatus::Unclear {
+                "Your weigh-ins of the last four weeks do not show clearly whether your weight is coming down, holding steady or going up, so this report makes no suggestions for change this month.".into()
+            } else {
+                "There are not enough recent weigh-ins to see how your weight is moving, so this report makes no suggestions this month.".into()
+            });
             g.paragraphs.push(format!(
                 "Weighing in about {} times a week, at the same time of day, lets next month's report show where you stand. {staff}",
                 fmt::fixed(f.weigh_ins_target, 0)
@@ -918,6 +926,23 @@ fn maintain_sentence(
     t: &Thresholds,
 ) -> Option<String> {
     let tdee = f.tdee?;
+    // Without an intake implied by the weight trend (too few weigh-ins over the energy
+    // module's window, or a change the model cannot explain) the module's energy use is
+    // resting energy by a published equation × an activity level: a figure about people like
+    // this one, not about this person now. Printed as what "holds your current weight" it read
+    // as the person's own maintenance intake (sample program, September, SG-017, SG-019,
+    // SG-024: "about 2,000 kcal a day would hold the weight of your last weigh-in", with no
+    // September trend behind it). Resting energy alone is within ±10 % for only about 80 % of
+    // adults (Frankenfield et al. 2005, J Am Diet Assoc 105:775, from memory), and activity
+    // levels from 1.4 to 2.0 (FAO/WHO/UNU 2004) move the total by over 40 %: the report says
+    // that it is not known from the records and names the weigh-ins as the guide, with the
+    // floor, which holds whatever the figure.
+    if f.implied.is_none() {
+        return Some(format!(
+            "How much you would need to eat to hold your weight is not known from your records this month: that figure comes from your weight trend over the last four weeks, which does not give one now. An estimate from a published equation and a typical activity level can be several hundred kcal a day off for one person, so this report gives none. Your weekly weigh-ins are the best guide: a steady weight means you are eating about what you use. Please do not eat less than {} a day without talking to a licensed clinician.",
+            fmt::kcal(floor)
+        ));
+    }
     let hold = fmt::round_to(tdee.value, KCAL_STEP);
     if hold < floor {
         return Some(format!(
@@ -1329,7 +1354,7 @@ mod tests {
         let cases: Vec<(&str, State, Phase)> = vec![
             ("plateau, loss goal", st(Plateau), Phase::RestartLoss),
             ("stable, loss goal", st(Stable), Phase::RestartLoss),
-            ("unclear, loss goal", st(Unclear), Phase::RestartLoss),
+            ("unclear, loss goal", st(Unclear), Phase::TooLittleData),
             ("losing, loss goal", st(Losing), Phase::KeepGoing),
             ("regaining", st(Regaining), Phase::Regain),
             (
@@ -2232,6 +2257,71 @@ mod tests {
             all.contains("about 2,000 kcal a day holds your current weight with your present activity (likely between 1,600 and 2,400 kcal, so let your weekly weigh-ins guide you)."),
             "{all}"
         );
+    }
+
+    #[test]
+    fn no_holding_intake_is_printed_without_an_intake_implied_by_the_trend() {
+        // The energy module's total without an implied intake is resting energy (equation) ×
+        // an activity level: the report must not give it as the intake that holds this
+        // person's weight (sample program, September, SG-017: "about 2,000 kcal a day would
+        // hold the weight of your last weigh-in").
+        let t = Thresholds::default();
+        let mut s = st(Insufficient);
+        s.bmi = Some(23.0);
+        let mut f = facts();
+        f.implied = None;
+        f.balance = None;
+        f.tdee = Some(Est {
+            value: 2010.0,
+            lower: Some(1630.0),
+            upper: Some(2390.0),
+        });
+        let g = compose(decide(&s, &t), &s, &t, &f);
+        assert_eq!(g.phase, "maintain");
+        let all = g.paragraphs.join(" ");
+        for figure in ["2,000", "2,010", "1,600", "1,650", "2,400", "holds your"] {
+            assert!(!all.contains(figure), "{figure}: {all}");
+        }
+        assert!(
+            all.contains("is not known from your records this month"),
+            "{all}"
+        );
+        // The floor still stands, and is the only amount.
+        assert!(
+            all.contains("do not eat less than 1,200 kcal a day"),
+            "{all}"
+        );
+        assert_eq!(all.matches(" kcal").count(), 2, "{all}");
+        // With the implied intake the figure and its range come back.
+        f.implied = facts().implied;
+        let all = compose(decide(&s, &t), &s, &t, &f).paragraphs.join(" ");
+        assert!(all.contains("about 2,000 kcal a day"), "{all}");
+    }
+
+    #[test]
+    fn an_unclear_trend_is_offered_no_way_to_restart_a_loss() {
+        // The last four weeks too noisy to tell losing from steady or rising (the trend's
+        // `unclear`): no options sized from that slope, and the reader is told why (sample
+        // program, September, SG-033).
+        let t = Thresholds::default();
+        let s = st(Unclear);
+        assert_eq!(decide(&s, &t), Phase::TooLittleData);
+        let g = compose(decide(&s, &t), &s, &t, &facts());
+        assert!(g.options.is_empty() && g.options_intro.is_empty());
+        assert!(!g.show_plateaus);
+        let all = g.paragraphs.join(" ");
+        assert!(
+            all.contains(
+                "do not show clearly whether your weight is coming down, holding steady or going up"
+            ),
+            "{all}"
+        );
+        assert!(!all.contains(" kcal") && !all.contains("restart"), "{all}");
+        // Too few weigh-ins keeps its own words.
+        let g = compose(Phase::TooLittleData, &st(Insufficient), &t, &facts());
+        assert!(g.paragraphs[0].starts_with("There are not enough recent weigh-ins"));
+        // A plateau known as such still gets the options.
+        assert_eq!(decide(&st(Plateau), &t), Phase::RestartLoss);
     }
 
     #[test]

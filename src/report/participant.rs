@@ -154,6 +154,17 @@ fn num_text(x: Option<f64>) -> String {
     }
 }
 
+/// Clinical flags that say the loss itself may be unsafe (too fast, or on too little food):
+/// a report carrying one shows no loss milestones as reached.
+const UNSAFE_LOSS_FLAGS: [&str; 6] = [
+    "fast_loss",
+    "very_low_intake",
+    "low_intake",
+    "below_resting_intake",
+    "very_low_implied_intake",
+    "forecast_underweight",
+];
+
 /// Builds the participant report, section by section.
 pub fn build(
     plan: &Scope<'_>,
@@ -177,17 +188,19 @@ pub fn build(
     // in the underweight range or flagged low (BMI 17.0 read a green "3 % loss · reached"), who
     // is pregnant, or whose loss was never a goal (a starting BMI already below the loss
     // cut-off, where the report says the weight need not come down) sees no loss milestones.
-    let praise_loss = !(state
-        .clinical_flags
-        .iter()
-        .any(|c| c == "low_bmi" || c == "pregnancy")
-        || state
+    // Nor does someone whose loss or intake is flagged for a clinician: "10 % loss · reached"
+    // in green sat above "weight came down faster than 1 kg a week" and an intake below
+    // resting energy (sample program, September, SG-050).
+    let praise_loss =
+        !(state.clinical_flags.iter().any(|c| {
+            c == "low_bmi" || c == "pregnancy" || UNSAFE_LOSS_FLAGS.contains(&c.as_str())
+        }) || state
             .bmi
             .is_some_and(|b| b < thresholds.underweight_bmi_below)
-        || v.outcomes
-            .as_ref()
-            .and_then(|o| o.bmi_baseline_kg_m2)
-            .is_some_and(|b| b < thresholds.loss_cut(state.older)));
+            || v.outcomes
+                .as_ref()
+                .and_then(|o| o.bmi_baseline_kg_m2)
+                .is_some_and(|b| b < thresholds.loss_cut(state.older)));
 
     // Weight chart, with the target weight when there is a starting weight.
     let target_kg = v

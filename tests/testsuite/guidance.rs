@@ -215,6 +215,70 @@ fn every_sample_participants_options_follow_the_rules() {
         assert!(g.options.is_empty());
     }
     assert!(offered > 0, "no option offered at all: {phases:?}");
+    // No options to restart a loss while the last four weeks cannot tell the direction (too
+    // few weigh-ins, or a trend too noisy: SG-033 was shown what it would take to "restart a
+    // loss" beside a headline saying more weigh-ins would show whether it had levelled off).
+    for (id, (state, phase, g, _)) in &s.people {
+        if matches!(
+            state.status,
+            guidance::TrendStatus::Unclear | guidance::TrendStatus::Insufficient
+        ) {
+            assert_ne!(*phase, Phase::RestartLoss, "{id}");
+            assert!(g.options.is_empty() || g.phase == "regain", "{id}");
+        }
+    }
+    let (state, phase, g, _) = &s.people["SG-033"];
+    assert_eq!(state.status, guidance::TrendStatus::Unclear);
+    assert_eq!(*phase, Phase::TooLittleData);
+    assert!(
+        !g.paragraphs.join(" ").contains("restart"),
+        "{:?}",
+        g.paragraphs
+    );
+    // No maintenance intake from resting energy × an activity level where the weight trend
+    // implies no intake (SG-017, SG-019 and SG-024 read "about 2,000 kcal a day would hold the
+    // weight of your last weigh-in" with no September trend behind it).
+    for id in ["SG-017", "SG-019", "SG-024"] {
+        let (_, phase, g, ctx) = &s.people[id];
+        assert!(matches!(phase, Phase::Maintain(_)), "{id}: {phase:?}");
+        let text = g.paragraphs.join(" ");
+        assert!(
+            !text.contains("would hold") && !text.contains("holds your"),
+            "{id}: {text}"
+        );
+        assert!(
+            text.contains("is not known from your records this month"),
+            "{id}: {text}"
+        );
+        let energy = serde_json::to_string(&ctx.energy).unwrap();
+        assert!(
+            !energy.contains("Intake implied by your weight trend"),
+            "{id}: {energy}"
+        );
+    }
+    // The two participants added to show the cautions the others never reach: a loss above
+    // 1 % of body weight a week for weeks (SG-050) is for a clinician first, with the fast-loss
+    // flag; a 72-year-old (SG-051) is told what losing weight means from 70.
+    let (state, phase, g, _) = &s.people["SG-050"];
+    assert!(
+        state.clinical_flags.iter().any(|c| c == "fast_loss"),
+        "{:?}",
+        state.clinical_flags
+    );
+    assert_eq!(*phase, Phase::Clinician);
+    assert!(g.options.is_empty());
+    // Her loss milestones are not shown as achievements beside the flags.
+    let (_, _, _, ctx) = &s.people["SG-050"];
+    assert!(ctx.milestones.is_empty(), "{:?}", ctx.milestones.len());
+    let (state, _, g, _) = &s.people["SG-051"];
+    assert!(state.older);
+    assert!(
+        g.paragraphs
+            .iter()
+            .any(|p| p.starts_with("From the age of 70")),
+        "{:?}",
+        g.paragraphs
+    );
     // The participants the report once pushed to lose more (past target, healthy BMI) now get
     // maintenance guidance.
     for id in ["SG-035", "SG-014"] {

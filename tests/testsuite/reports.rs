@@ -603,7 +603,7 @@ fn html_reports_make_no_external_request() {
             checked += 1;
         }
     }
-    assert_eq!(checked, 48);
+    assert_eq!(checked, 50);
     assert_self_contained("group/program.html", &run.read("group/program.html"));
 }
 
@@ -1285,7 +1285,7 @@ fn templates_dump_writes_every_built_in_and_never_overwrites() {
 fn every_participant_report_shows_the_tidy_figures() {
     let run = sample_run();
     let rows = tidy_rows(run);
-    assert_eq!(rows.len(), 48);
+    assert_eq!(rows.len(), 50);
     for row in &rows {
         let id = &row["participant_id"];
         let html = run.read(&format!("participants/{id}.html"));

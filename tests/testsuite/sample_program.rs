@@ -44,7 +44,9 @@ fn sample_program_runs_end_to_end() {
     assert_eq!(after, inputs_before);
 
     // One private report per usable participant in each format, and the group report.
-    for id in (1..=48).map(|i| format!("SG-{i:03}")) {
+    // SG-001 to SG-048, then the two added to show the fast-loss and age cautions (after
+    // SG-049, the folder without a profile).
+    for id in (1..=48).chain(50..=51).map(|i| format!("SG-{i:03}")) {
         for ext in ["html", "pdf"] {
             let f = reports.join(format!("participants/{id}.{ext}"));
             assert!(f.is_file(), "missing {}", f.display());
@@ -60,7 +62,7 @@ fn sample_program_runs_end_to_end() {
     // Tidy metrics: one row per usable participant, every module present with units in the
     // column names.
     let (header, rows) = read_csv(&reports.join("metrics/participants.csv"));
-    assert_eq!(rows.len(), 48);
+    assert_eq!(rows.len(), 50);
     for col in [
         "trend.current_weight_kg",
         "trend.slope_kg_per_week",
@@ -334,7 +336,9 @@ fn sample_program_runs_end_to_end() {
 
     // No report proposes a change it could not estimate (a participant without recent
     // weigh-ins gets no "eat 0 kcal less" option).
-    for id in (1..=48).map(|i| format!("SG-{i:03}")) {
+    // SG-001 to SG-048, then the two added to show the fast-loss and age cautions (after
+    // SG-049, the folder without a profile).
+    for id in (1..=48).chain(50..=51).map(|i| format!("SG-{i:03}")) {
         let html =
             std::fs::read_to_string(reports.join(format!("participants/{id}.html"))).unwrap();
         assert!(
@@ -349,7 +353,9 @@ fn sample_program_runs_end_to_end() {
 
     // The group report names no participant.
     let group = std::fs::read_to_string(reports.join("group/program.html")).unwrap();
-    for id in (1..=48).map(|i| format!("SG-{i:03}")) {
+    // SG-001 to SG-048, then the two added to show the fast-loss and age cautions (after
+    // SG-049, the folder without a profile).
+    for id in (1..=48).chain(50..=51).map(|i| format!("SG-{i:03}")) {
         assert!(!group.contains(&id), "group report names {id}");
     }
     assert!(
