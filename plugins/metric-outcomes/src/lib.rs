@@ -1322,7 +1322,8 @@ enum IntakeEvidence {
     Trend(Implied),
     /// The log is below the threshold on most logged days or on average and the trend agrees.
     LogAndTrend(LogTally, Implied),
-    /// The log is below it on most logged days or on average and there is no trend to check it against.
+    /// The log is below it on most logged days or on average and no implied intake (from the
+    /// weight trend) checks it: a trend may show on the chart and still imply no intake.
     LogAlone(LogTally),
 }
 
@@ -1458,8 +1459,8 @@ fn push_intake_flags(
         ),
         Some(IntakeEvidence::LogAlone(t)) => format!(
             "Logged intake averaged about {:.0} kcal a day over {} logged days and was below \
-             {floor:.0} kcal a day, {unsupervised}, on {} of them; there is no weight trend \
-             to check it against. If the log is complete, consider discussing it with a \
+             {floor:.0} kcal a day, {unsupervised}, on {} of them; the weigh-ins give no \
+             implied intake to check it against. If the log is complete, consider discussing it with a \
              licensed clinician.",
             t.mean, t.days, t.below
         ),

@@ -620,7 +620,8 @@ fn low_intake_needs_the_weight_trend_not_to_contradict_the_log() {
     let f = flags(None, &no_weights);
     assert_eq!(f.len(), 1, "{f:?}");
     assert!(
-        f[0].1.contains("no weight trend to check it against"),
+        f[0].1
+            .contains("the weigh-ins give no implied intake to check it against"),
         "{}",
         f[0].1
     );
