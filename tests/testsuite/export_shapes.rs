@@ -462,43 +462,40 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
     );
 
     // The second corpus: exports as a programme administrator receives them.
-    let lb = kg("weights-scale-lb-body-composition-blank-tail.csv");
-    same(
-        lb,
-        &[201.4 * LB, 200.8 * LB, 200.2 * LB, 199.6 * LB, 199.9 * LB],
-    );
-    assert_eq!(
-        days("weights-scale-lb-body-composition-blank-tail.csv"),
-        [d(5, 4), d(5, 5), d(5, 7), d(5, 9), d(5, 11)]
-    );
-    same(
-        kg("weights-semicolon-decimal-comma-dotted-dates.csv"),
-        &[84.3, 84.1, 83.9, 84.0],
-    );
-    assert_eq!(
-        days("weights-semicolon-decimal-comma-dotted-dates.csv"),
-        [d(5, 4), d(5, 5), d(5, 6), d(5, 8)]
-    );
-    same(
-        kg("weights-spreadsheet-utf16-tabs.csv"),
-        &[91.2, 90.6, 90.1, 89.8],
-    );
-    assert_eq!(
-        days("weights-spreadsheet-utf16-tabs.csv"),
-        [d(5, 2), d(5, 9), d(5, 16), d(5, 23)]
-    );
-    same(
-        kg("weights-summary-below-unnamed-date.csv"),
-        &[88.4, 87.9, 87.5, 87.6, 87.0],
-    );
-    same(
-        kg("weights-clinic-visit-notes-multiline.csv"),
-        &[96.4, 95.1, 94.7, 94.0],
-    );
-    assert_eq!(
-        days("weights-clinic-visit-notes-multiline.csv"),
-        [d(5, 6), d(5, 20), d(6, 3), d(6, 17)]
-    );
+    // Weights (kg) and days of each weigh-in export.
+    let weigh_ins: [(&str, Vec<f64>, Vec<NaiveDate>); 5] = [
+        (
+            "weights-scale-lb-body-composition-blank-tail.csv",
+            [201.4, 200.8, 200.2, 199.6, 199.9]
+                .map(|lb| lb * LB)
+                .to_vec(),
+            vec![d(5, 4), d(5, 5), d(5, 7), d(5, 9), d(5, 11)],
+        ),
+        (
+            "weights-semicolon-decimal-comma-dotted-dates.csv",
+            vec![84.3, 84.1, 83.9, 84.0],
+            vec![d(5, 4), d(5, 5), d(5, 6), d(5, 8)],
+        ),
+        (
+            "weights-spreadsheet-utf16-tabs.csv",
+            vec![91.2, 90.6, 90.1, 89.8],
+            vec![d(5, 2), d(5, 9), d(5, 16), d(5, 23)],
+        ),
+        (
+            "weights-summary-below-unnamed-date.csv",
+            vec![88.4, 87.9, 87.5, 87.6, 87.0],
+            vec![d(5, 4), d(5, 11), d(5, 18), d(5, 25), d(6, 1)],
+        ),
+        (
+            "weights-clinic-visit-notes-multiline.csv",
+            vec![96.4, 95.1, 94.7, 94.0],
+            vec![d(5, 6), d(5, 20), d(6, 3), d(6, 17)],
+        ),
+    ];
+    for (file, want_kg, want_days) in &weigh_ins {
+        same(kg(file), want_kg);
+        assert_eq!(&days(file), want_days, "{file}");
+    }
     // Food items summed per day (190 + 92 + 380 + 80 + 610 + 110 = 1462), the `Daily Total`
     // rows not added to them.
     let items = intake("intake-food-diary-per-item-daily-total.csv");
