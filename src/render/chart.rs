@@ -623,7 +623,9 @@ fn draw_line_chart<DB: DrawingBackend>(
         .label_style(text(LABEL_SIZE, MUTED))
         .axis_desc_style(text(LABEL_SIZE, MUTED))
         .y_desc(c.y_label.as_str())
-        .x_labels(7)
+        // About one date label per 90 px of drawing: seven across the 720 px drawing, four
+        // across the 380 px one for phones, where seven ran into each other ("20 Apr25 May").
+        .x_labels((plot_area.dim_in_pixel().0 / 90).clamp(3, 7) as usize)
         .y_labels(6)
         .x_label_formatter(&date_fmt)
         .y_label_formatter(&y_fmt)
@@ -1176,6 +1178,51 @@ pub(crate) mod tests {
                 (y.parse().expect("numeric y"), body.trim().to_string())
             })
             .collect()
+    }
+
+    /// The date labels along the x axis do not run into each other, on the phone drawing
+    /// (380 px) as on the wide one, over a program's nine months: seven labels across the
+    /// phone drawing printed "20 Apr25 May 29 Jun".
+    #[test]
+    fn date_labels_keep_apart_on_the_narrow_drawing() {
+        let mut chart = sample_line();
+        let Chart::Line(line) = &mut chart else {
+            unreachable!()
+        };
+        line.lines[0].points = (0..265)
+            .map(|i| (d(4, 1) + Duration::days(i), 92.0 - i as f64 * 0.02))
+            .collect();
+        for (width, svg) in [
+            (380, to_svg_narrow(&chart, 380, 300)),
+            (720, to_svg(&chart, 720, 340)),
+        ] {
+            // (x, text) of the date labels: "12 Oct".
+            let mut dates: Vec<(f64, String)> = svg
+                .split("<text")
+                .skip(1)
+                .filter_map(|tag| {
+                    let x: f64 = tag.split(" x=\"").nth(1)?.split('"').next()?.parse().ok()?;
+                    let body = tag[tag.find('>')? + 1..tag.find("</text>")?].trim();
+                    let (day, month) = body.split_once(' ')?;
+                    (day.parse::<u32>().is_ok() && month.len() == 3).then(|| (x, body.to_string()))
+                })
+                .collect();
+            dates.sort_by(|a, b| a.0.total_cmp(&b.0));
+            assert!(dates.len() >= 3, "{width}: {dates:?}");
+            // Each label's width at the label size (font-size = LABEL_SIZE / 1.24), with
+            // 0.6 em a character (generous for these sans-serif digits and letters), and a gap.
+            let em = LABEL_SIZE / 1.24;
+            for w in dates.windows(2) {
+                let room =
+                    (w[0].1.chars().count() + w[1].1.chars().count()) as f64 / 2.0 * 0.6 * em;
+                assert!(
+                    w[1].0 - w[0].0 >= room + 6.0,
+                    "{width}: {:?} and {:?} overlap in {dates:?}",
+                    w[0],
+                    w[1]
+                );
+            }
+        }
     }
 
     #[test]
