@@ -502,7 +502,12 @@ pub fn read_table(
     let text = kept;
     let (delimiter, sniffed) = match (sep_line(text), opts.delimiter) {
         (Some(d), _) | (None, Some(d)) => (d, false),
-        (None, None) => (sniff_delimiter(text).unwrap_or(b','), true),
+        (None, None) => (
+            sniff_below_preamble(text, spec, opts)
+                .or_else(|| sniff_delimiter(text))
+                .unwrap_or(b','),
+            true,
+        ),
     };
     // Before the reader sees it: the reader gathers a field whole (and a copy of the text)
     // before anything can judge it, so a field of megabytes cost several times its size.
@@ -853,8 +858,10 @@ fn read_records(
     };
     // One record buffer for the whole file (csv's record iterator clones every record).
     let mut rec = csv::StringRecord::new();
-    // A title line above the header (`Foods`, `Body`: some trackers' exports start so).
-    let mut title = title_line(text, spec, opts, delimiter);
+    // Lines above the header (`Foods`, `Body`, an export's title and date: some exports
+    // start so).
+    let above = preamble(text, spec, opts, delimiter).unwrap_or_default();
+    let mut skip = above.len();
     let header = loop {
         match reader.read_record(&mut rec) {
             // Nothing but (blank) line ends: no header row at all. A file with only a header
@@ -889,7 +896,10 @@ fn read_records(
                 return None;
             }
             Ok(true) if rec.iter().all(|f| f.trim().is_empty()) => continue,
-            Ok(true) if title.take().is_some() => continue,
+            Ok(true) if skip > 0 => {
+                skip -= 1;
+                continue;
+            }
             Ok(true) => break rec.clone(),
         }
     };
@@ -930,10 +940,16 @@ fn read_records(
                 .trim()
                 .escape_default()
         ));
-    } else if let Some(t) = title_line(text, spec, opts, delimiter) {
+    } else if let [t] = above.as_slice() {
         ctx.note(format!(
             "the first line, `{}`, is a title above the header (line {header_line}) and is not read",
-            shorten(&t, 40)
+            shorten(t, 40)
+        ));
+    } else if let [t, ..] = above.as_slice() {
+        ctx.note(format!(
+            "the {} lines above the header (line {header_line}), the first `{}`, are not read",
+            above.len(),
+            shorten(t, 40)
         ));
     }
     // Budgets (crate::limits): checked before anything is built from the header or the rows.
@@ -1700,24 +1716,48 @@ fn read_records(
     Some(table)
 }
 
-/// The first non-blank line of `text` when it is a title above the header: the next
-/// non-blank line is a header naming the date column among others, and the first holds no
-/// quote and either no delimiter (`Foods`, `Body`) or fewer fields than that header, none of
-/// them one of the file's columns: a health app's metadata line (the table's name, a version
-/// and a count, `com.example.health.weight,6310002,4`) above its header.
-fn title_line(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> Option<String> {
+/// Most lines above the header that are read as a preamble (titles, export dates, a person's
+/// name or an app's metadata): exports put a few such lines above the table; more than this
+/// and the file is more likely not the table it should be (common practice).
+pub const MAX_PREAMBLE_LINES: usize = 10;
+
+/// The non-blank lines above the header, when the header is not the first line: a `sep=;`
+/// line, or up to [`MAX_PREAMBLE_LINES`] lines above a header that names the date column
+/// among others. Each of those lines holds no quote and either no delimiter (`Body`,
+/// `Weight export for P1`, `Exported 2026-10-01 08:00`) or fewer fields than the header,
+/// none of them one of the file's columns: a health app's metadata line (the table's name, a
+/// version and a count, `com.example.health.weight,6310002,4`) above its header. A line that
+/// names a column or has as many fields as the header below it is the header itself, as
+/// before, so a header with wrong names is still reported as such. Lines holding nothing but
+/// delimiters count as blank, as the reader skips them.
+fn preamble(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> Option<Vec<String>> {
     if sep_line(text).is_some() {
         return text
             .split(['\n', '\r'])
             .find(|l| !l.trim().is_empty())
-            .map(|l| l.trim().to_string());
+            .map(|l| vec![l.trim().to_string()]);
     }
-    let mut lines = text.split(['\n', '\r']).filter(|l| !l.trim().is_empty());
-    let (first, second) = (lines.next()?, lines.next()?);
+    Some(preamble_at(text, spec, opts, delimiter)?.0)
+}
+
+/// [`preamble`]'s lines (without the `sep=` case) and the byte offset of the header line.
+fn preamble_at(
+    text: &str,
+    spec: &FileSpec,
+    opts: &CsvOptions,
+    delimiter: u8,
+) -> Option<(Vec<String>, usize)> {
     let d = delimiter as char;
-    if first.contains('"') || !second.contains(d) {
-        return None;
-    }
+    let lines: Vec<(usize, &str)> = text
+        .split(['\n', '\r'])
+        .scan(0usize, |at, l| {
+            let start = *at;
+            *at += l.len() + 1;
+            Some((start, l))
+        })
+        .filter(|(_, l)| l.split(d).any(|f| !f.trim().is_empty()))
+        .take(MAX_PREAMBLE_LINES + 1)
+        .collect();
     let user_map = opts.columns.get(spec.kind());
     // Which of the file's columns a header field names, if any.
     let column = |h: &str| -> Option<String> {
@@ -1736,16 +1776,40 @@ fn title_line(text: &str, spec: &FileSpec, opts: &CsvOptions, delimiter: u8) -> 
                     .map(|(c, _)| c.to_string())
             })
     };
-    if first.contains(d)
-        && (first.split(d).count() >= second.split(d).count()
-            || first.split(d).any(|f| column(f).is_some()))
-    {
-        return None;
+    let fields = |l: &str| if l.contains(d) { l.split(d).count() } else { 1 };
+    for k in 1..lines.len() {
+        let above = lines[k - 1].1;
+        // A line above the header holds no quote (so the reader ends its record where the
+        // line ends) and names none of the file's columns.
+        if above.contains('"') || above.contains(d) && above.split(d).any(|f| column(f).is_some()) {
+            return None;
+        }
+        let (at, header) = lines[k];
+        if !header.contains(d)
+            || !header
+                .split(d)
+                .any(|h| column(h).is_some_and(|c| c == "date"))
+        {
+            continue;
+        }
+        let n = fields(header);
+        return lines[..k].iter().all(|(_, l)| fields(l) < n).then(|| {
+            let above = lines[..k].iter().map(|(_, l)| l.trim().to_string());
+            (above.collect(), at)
+        });
     }
-    let names_date = second
-        .split(d)
-        .any(|h| column(h).is_some_and(|c| c == "date"));
-    names_date.then(|| first.trim().trim_start_matches('\u{feff}').to_string())
+    None
+}
+
+/// The delimiter of a file whose header is below a preamble ([`preamble`]): of comma,
+/// semicolon and tab, the first whose header (naming the date column) is found below lines
+/// that are no header, and that [`sniff_delimiter`] also picks for the text from that header
+/// on. `None` when no such header is found: the whole text is sniffed as before.
+fn sniff_below_preamble(text: &str, spec: &FileSpec, opts: &CsvOptions) -> Option<u8> {
+    [b',', b';', b'\t'].into_iter().find(|&d| {
+        preamble_at(text, spec, opts, d)
+            .is_some_and(|(_, at)| sniff_delimiter(&text[at..]) == Some(d))
+    })
 }
 
 /// The delimiter a first line `sep=;` names: spreadsheets write it above the header of a CSV
@@ -3237,6 +3301,64 @@ mod tests {
             "{}",
             d[0]
         );
+    }
+
+    #[test]
+    fn several_lines_above_the_header_are_not_read_and_the_delimiter_is_found_below_them() {
+        // An export's title, date and a blank line above a semicolon header: the title hid
+        // the delimiter (sniffed on the first line, it found none and read commas), and only
+        // one line above the header was allowed; both files were refused for missing columns.
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text = "Weight export for P1\nExported 2026-10-01 08:00\n\nDate;Weight;Unit;Note\n\
+                    01.05.2026;72,5;kg;\n02.05.2026;72,3;kg;after run\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d)
+            .unwrap_or_else(|| panic!("{d:?}"));
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(t.delimiter, b';');
+        assert_eq!(t.header_line, 4);
+        assert_eq!(t.rows.iter().map(|r| r.line).collect::<Vec<_>>(), [5, 6]);
+        assert_eq!(t.get(&t.rows[1], "weight"), Some("72,3"));
+        assert!(
+            ctx.take_notes().iter().any(|n| n.message
+                == "the 2 lines above the header (line 4), the first `Weight export for P1`, are not read"),
+        );
+        // One title line above a tab-separated header, as above.
+        let text = "Body\nDate\tWeight\tUnit\n2026-05-01\t72.5\tkg\n";
+        let t = read_table(text, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!((t.delimiter, t.header_line, t.rows[0].line), (b'\t', 2, 3));
+        // Ten lines above the header are read so; eleven are not (the first line is then the
+        // header, which lacks the columns).
+        let lines = |k: usize| (1..=k).map(|i| format!("note {i}\n")).collect::<String>();
+        let ten = format!(
+            "{}Date,Weight,Unit\n2026-05-01,72.5,kg\n",
+            lines(MAX_PREAMBLE_LINES)
+        );
+        let t = read_table(&ten, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
+        assert_eq!((t.header_line, t.rows.len()), (11, 1));
+        let eleven = format!("{}Date,Weight,Unit\n2026-05-01,72.5,kg\n", lines(11));
+        let (t, d) = read(&eleven, &CsvOptions::default());
+        assert!(t.is_none());
+        assert!(
+            d[0].message.contains("missing required columns"),
+            "{}",
+            d[0]
+        );
+        // A line above that names a column, or holds a quote, ends the search: the first line
+        // is the header, as before.
+        for text in [
+            "Summary\nWeight,Unit\nDate,Weight,Unit\n2026-05-01,72.5,kg\n",
+            "Report for \"P1\"\nDate,Weight,Unit\n2026-05-01,72.5,kg\n",
+        ] {
+            let (t, d) = read(text, &CsvOptions::default());
+            assert!(t.is_none(), "{text}");
+            assert!(
+                d[0].message.contains("missing required columns"),
+                "{}",
+                d[0]
+            );
+        }
     }
 
     #[test]

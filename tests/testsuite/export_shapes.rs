@@ -71,6 +71,9 @@ const SHAPES: &[(&str, usize, bool)] = &[
     // `Duration (s)`: refused, the unit not understood; then `Start Date` and `End Date`
     // both held dates.
     ("activity-workouts-seconds-start-end.csv", 3, false),
+    // A title, an export date and a blank line above a semicolon header: refused for
+    // missing columns (one line above the header was allowed, and the title hid the `;`).
+    ("weights-title-export-date-semicolon.csv", 3, false),
 ];
 
 const PROGRAM: &str = "format_version: 1
@@ -324,6 +327,10 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         [d(5, 1), d(5, 2), d(5, 13)]
     );
     same(kg("weights-german-scale.csv"), &[72.5, 72.3, 72.0]);
+    same(
+        kg("weights-title-export-date-semicolon.csv"),
+        &[72.5, 72.3, 72.0],
+    );
     same(kg("weights-spreadsheet-sep-line.csv"), &[72.5, 72.3, 72.4]);
     same(
         kg("weights-spreadsheet-quoted-decimal-commas.csv"),
