@@ -2148,7 +2148,7 @@ fn written_out(
     day_first_dots: bool,
     span: Option<(NaiveDate, NaiveDate)>,
 ) -> Option<(NaiveDate, Option<NaiveTime>)> {
-    const NAMED: [&str; 13] = [
+    const NAMED: [&str; 15] = [
         "%B %d, %Y",
         "%b %d, %Y",
         "%B %d %Y",
@@ -2164,6 +2164,9 @@ fn written_out(
         // Without a comma (`Fri May 01 2026`, as scripts' date-to-text functions write it).
         "%a %b %d %Y",
         "%A %B %d %Y",
+        // Day first without a comma (`Fri 1 May 2026`, as diaries and calendars write it).
+        "%a %d %b %Y",
+        "%A %d %B %Y",
     ];
     const TIMES: [&str; 4] = ["%H:%M", "%H:%M:%S", "%I:%M %p", "%I:%M:%S %p"];
     // The month's name is a word of three letters or more (`AM`, `PM` are not).
@@ -3111,6 +3114,9 @@ mod tests {
         // With the weekday (1 May 2026 is a Friday).
         assert_eq!(day("Fri, May 1, 2026", &opts), may1);
         assert_eq!(day("Friday, 1 May 2026", &opts), may1);
+        // Day first without a comma, as diaries write it: every such row was dropped.
+        assert_eq!(day("Fri 1 May 2026", &opts), may1);
+        assert_eq!(day("Friday 1 May 2026", &opts), may1);
         // Not dates: a summary row, a month-first dotted date, a day that does not exist, a
         // weekday that is not the date's.
         for s in [
@@ -3119,6 +3125,7 @@ mod tests {
             "Feb 30, 2026",
             "2026/13/01",
             "Thu, May 1, 2026",
+            "Sat 1 May 2026",
         ] {
             assert_eq!(day(s, &opts), None, "{s}");
         }
