@@ -172,6 +172,10 @@ fn parse_rows<T>(
         };
         let before = diags.len();
         let kept = cells.when("date", diags).and_then(|when| {
+            if table.is_unfilled(row) {
+                table.unfilled_row(row);
+                return None;
+            }
             f(&cells, diags).map(|value| Parsed {
                 line: row.line,
                 date: when.date,

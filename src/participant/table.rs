@@ -170,6 +170,9 @@ pub struct Table {
     date_rows_in: Option<usize>,
     /// Rows with a summary label where the date would be (`Average`): how many, and the first.
     summary_rows: RefCell<(usize, Option<(u64, String)>)>,
+    /// Rows with a date and nothing recorded (see [`Table::is_unfilled`]): how many, and the
+    /// first one's line.
+    unfilled_rows: Cell<(usize, u64)>,
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
     /// the file's note.
     recognised: RefCell<std::collections::BTreeSet<std::borrow::Cow<'static, str>>>,
@@ -188,6 +191,38 @@ impl Table {
     pub fn get<'t>(&'t self, row: &Row, col: &str) -> Option<&'t str> {
         let i = *self.columns.get(col)?;
         self.field(row, i)
+    }
+
+    /// Whether `row` records nothing but its day: every cell other than the date, time, unit
+    /// and source is empty or holds only a placeholder (`-`, `N/A`, `null`), as a log sheet
+    /// with its days written in ahead leaves the days not (yet) filled in. Such a row is no
+    /// measurement and no mistake: it was warned about as "`weight` is empty", one warning
+    /// per blank day, so a filled-in sheet ended every run with warnings.
+    pub fn is_unfilled(&self, row: &Row) -> bool {
+        if self.date_rows_in.is_some() {
+            return false;
+        }
+        let kept: Vec<usize> = ["date", "time", "unit", "source"]
+            .iter()
+            .filter_map(|c| self.columns.get(c).copied())
+            .collect();
+        self.width > kept.len()
+            && (0..self.width)
+                .filter(|i| !kept.contains(i))
+                .all(|i| self.field(row, i).is_none_or(is_placeholder))
+    }
+
+    /// Counts `row` as one with nothing recorded, for the file's note.
+    pub fn unfilled_row(&self, row: &Row) {
+        let (n, first) = self.unfilled_rows.get();
+        self.unfilled_rows.set((
+            n + 1,
+            if n == 0 {
+                row.line
+            } else {
+                first.min(row.line)
+            },
+        ));
     }
 
     fn field<'t>(&'t self, row: &Row, i: usize) -> Option<&'t str> {
@@ -278,6 +313,7 @@ impl Table {
             numeric_example: None,
             date_rows_in: None,
             summary_rows: RefCell::new((0, None)),
+            unfilled_rows: Cell::new((0, 0)),
             recognised: RefCell::default(),
         }
     }
@@ -349,6 +385,17 @@ impl Table {
             };
             parts.push(format!(
                 "{rows} summing up the others (`{label}` on line {line}) left out: not measurements"
+            ));
+        }
+        if let (n @ 1.., line) = self.unfilled_rows.get() {
+            let rows = if n == 1 {
+                "1 row".to_string()
+            } else {
+                format!("{n} rows")
+            };
+            parts.push(format!(
+                "{rows} with a date and nothing recorded (first on line {line}; the days a log \
+                 sheet leaves blank) not read"
             ));
         }
         for (written, col) in &self.renamed {
@@ -424,6 +471,15 @@ impl Table {
         }
         dup
     }
+}
+
+/// Whether a cell holds only a placeholder for "no value" (`-`, `–`, `—`, `N/A`, `NA`, `null`,
+/// `none`), as spreadsheets and database exports write an empty cell (common practice).
+fn is_placeholder(s: &str) -> bool {
+    matches!(s, "-" | "–" | "—")
+        || ["n/a", "na", "null", "none"]
+            .iter()
+            .any(|p| s.eq_ignore_ascii_case(p))
 }
 
 /// Consecutive identical rows that make a repeated block (a file pasted twice): fewer could be

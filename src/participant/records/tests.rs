@@ -1649,6 +1649,53 @@ fn a_food_diarys_total_rows_are_not_added_to_the_meals() {
     );
 }
 
+/// A log sheet with its days written in ahead: the days left blank (or holding `-`, `N/A`)
+/// are no measurements and no mistakes. Each was warned about ("`weight` is empty"), so a
+/// sheet filled in on 10 days of 30 gave 20 warnings and every run ended with warnings. A
+/// blank day with a note, or a day with a unit and a note but no weight, is still named.
+#[test]
+fn days_a_log_sheet_leaves_blank_are_not_read_with_a_note() {
+    let c = ctx("weights.csv");
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date,weight,unit,source,notes\n2026-04-01,72.5,kg,home-scale,\n2026-04-02,,kg,home-scale,\n\
+         2026-04-03,-,,,\n2026-04-04,N/A,kg,,\n2026-04-05,72.1,kg,,\n2026-04-06,,kg,,scale broken\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(
+        w.iter().map(|x| x.weight.kg()).collect::<Vec<_>>(),
+        [72.5, 72.1]
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(7), Some(2)));
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.iter().any(|n| n.contains(
+            "3 rows with a date and nothing recorded (first on line 3; the days a log sheet leaves blank) not read"
+        )),
+        "{notes:?}"
+    );
+    // The same for a food diary and an activity log with their days written in ahead; an
+    // activity named with no minutes is still a row to correct.
+    let c = ctx("activity.csv");
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        "date,activity,minutes\n2026-04-01,walking,30\n2026-04-02,,\n2026-04-03,yoga,\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(a.len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(4));
+}
+
 /// Spreadsheet summary rows (`Average`, `Total` where the date would be) are no measurements:
 /// left out with a note, not a warning per row.
 #[test]
