@@ -19,6 +19,9 @@ pub struct TidyParticipant {
     pub enrolled: String,
     /// Day of withdrawal (profile.yaml), ISO 8601, when it is on or before the period's end.
     pub withdrew: Option<String>,
+    /// What the withdrawal was (`consent` or `stopped_program`, profile.yaml's
+    /// `withdrawal_reason`), beside `withdrew` and empty with it.
+    pub withdrawal_reason: Option<String>,
     /// Has a baseline weight: counted in the group report's intention-to-treat denominator
     /// (false when the group report leaves the participant out: their weigh-ins are another
     /// folder's; set when the file is written).
@@ -67,6 +70,8 @@ pub fn participant(
             .withdrew
             .filter(|_| summary.withdrawn)
             .map(|d| d.to_string()),
+        withdrawal_reason: Some(data.profile.withdrawal_reason.as_str().to_string())
+            .filter(|_| summary.withdrawn && data.profile.withdrew.is_some()),
         started,
         completer: started && summary.outcome_kg.is_some(),
         groups: data.profile.groups.clone(),
@@ -307,6 +312,7 @@ pub fn render(
         "period_to".into(),
         "enrolled".into(),
         "withdrew".into(),
+        "withdrawal_reason".into(),
         "started".into(),
         "completer".into(),
     ];
@@ -364,6 +370,7 @@ pub fn render(
                 to.clone(),
                 r.enrolled.clone(),
                 r.withdrew.clone().unwrap_or_default(),
+                r.withdrawal_reason.clone().unwrap_or_default(),
                 r.started.to_string(),
                 r.completer.to_string(),
             ];
@@ -529,8 +536,20 @@ pub fn datapackage(
         DpField::new(
             "withdrew",
             "date",
-            "day the participant withdrew (profile.yaml); empty when they had not withdrawn by period_to. Rows dated after it are not read, so their figures end there",
+            "day the participant withdrew (profile.yaml); empty when they had not withdrawn by period_to. Rows dated after it are not read, so their figures end there, except the weigh-ins of someone whose withdrawal_reason is stopped_program",
         ),
+        DpField {
+            constraints: Some(DpConstraints {
+                // ICH E9(R1) (2019), treatment-policy strategy; CONSORT 2010 flow diagram.
+                r#enum: Some(vec!["consent", "stopped_program"]),
+                ..Default::default()
+            }),
+            ..DpField::new(
+                "withdrawal_reason",
+                "string",
+                "what the withdrawal on withdrew was (profile.yaml's withdrawal_reason; empty when withdrew is): consent = withdrew consent to the use of their data, nothing dated after withdrew is read; stopped_program = stopped the program (discontinued the intervention), their weigh-ins after withdrew are read as follow-up and may give them a weight at the period's end (completer), their food, activity, session and lab rows after it are not, and they count as discontinued, not retained",
+            )
+        },
         DpField::required(
             "started",
             "boolean",
@@ -725,8 +744,8 @@ pub fn datapackage(
             "participants-records",
             "participants.json",
             "the rows of participants.csv as JSON records, one per reported participant \
-             (identified): participant_id, period_from, period_to, enrolled, withdrew, started, \
-             completer, groups (the profile's groups: keys), scalars and texts (each \
+             (identified): participant_id, period_from, period_to, enrolled, withdrew, \
+             withdrawal_reason, started, completer, groups (the profile's groups: keys), scalars and texts (each \
              [module, {name, label, unit, value, and lower and upper where an interval \
              exists}]), flags (the flags for a licensed clinician's review) and failures (the \
              modules that failed for this participant)",

@@ -195,16 +195,19 @@ impl Methods {
                         are, not how many stayed."
                 .into(),
             // ICH E9(R1) (2019), treatment-policy strategy: measurements after stopping
-            // treatment are used; data after withdrawal of consent are not.
-            withdrawal: "Withdrawal: weigh-ins and logs dated after a participant's withdrawal \
-                         day are not used in any figure, the intention-to-treat weight change \
-                         included. The participant records give one withdrawal day and do not \
-                         say whether the person only stopped the program (whose later \
-                         weigh-ins an intention-to-treat analysis would normally still use) \
-                         or withdrew consent to the use of their data (whose later data must \
-                         not be used), so every withdrawal is treated as the latter; someone \
-                         who withdrew more than 4 weeks before the period's end has no weight \
-                         at the time point and counts as no change (baseline carried forward)."
+            // treatment are used; data after withdrawal of consent are not. CONSORT 2010 flow
+            // diagram: "discontinued intervention" apart from those analysed.
+            withdrawal: "Withdrawal: for someone who withdrew consent to the use of their data \
+                         (the default), weigh-ins and logs dated after the withdrawal day are \
+                         not used in any figure, the intention-to-treat weight change included; \
+                         if they withdrew more than 4 weeks before the period's end they have \
+                         no weight at the time point and count as no change (baseline carried \
+                         forward). For someone recorded as having only stopped the program, \
+                         their weigh-ins after that day are used as follow-up, as an \
+                         intention-to-treat analysis under the treatment-policy strategy does: \
+                         a follow-up weigh-in in the period's last 4 weeks gives them a weight \
+                         at the time point. Their food and activity logs after that day are \
+                         not used, and they count as discontinued, not retained."
                 .into(),
             weights: "Baseline: each participant's first weigh-in on or after enrolment (the \
                       mean of that day's weigh-ins, moved onto the later level when the \

@@ -164,6 +164,7 @@ fn participant(id: &str, weigh_ins: usize) -> ParticipantData {
             height: Length::from_cm(165.0),
             enrolled: day(1, 1),
             withdrew: None,
+            withdrawal_reason: Default::default(),
             groups: BTreeMap::new(),
             body_fat_percent: None,
             targets: Targets::default(),

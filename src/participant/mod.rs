@@ -827,6 +827,7 @@ pub fn load_opened(
     let window = Window {
         enrolled: profile.as_ref().map(|p| p.enrolled),
         withdrew: profile.as_ref().and_then(|p| p.withdrew),
+        follow_up_weigh_ins: profile.as_ref().is_some_and(|p| p.follow_up_weigh_ins()),
         as_of,
         height_cm: profile.as_ref().map(|p| p.height.cm()),
         high_bmi_checked: profile

@@ -7,7 +7,7 @@ use crate::diag::Diagnostic;
 use crate::program::TargetsDef;
 use crate::program::load::key_line;
 use chrono::{Datelike, NaiveDate};
-use cohortpress_metric_api::{Profile, Sex, Targets};
+use cohortpress_metric_api::{Profile, Sex, Targets, WithdrawalReason};
 use serde::Deserialize;
 use std::collections::BTreeMap;
 
@@ -36,6 +36,10 @@ pub struct ProfileDef {
     /// Withdrawal date.
     #[serde(default)]
     pub withdrew: Option<NaiveDate>,
+    /// What the withdrawal was: `consent` (the default) or `stopped_program`. Only with
+    /// `withdrew`.
+    #[serde(default)]
+    pub withdrawal_reason: Option<WithdrawalReason>,
     /// Group attributes (site, team, …): text values (numbers are taken as text).
     #[serde(default)]
     pub groups: BTreeMap<String, serde_yaml::Value>,
@@ -107,6 +111,7 @@ const PROFILE_KEYS: &[&str] = &[
     "height",
     "enrolled",
     "withdrew",
+    "withdrawal_reason",
     "groups",
     "body_fat_percent",
     "targets",
@@ -123,6 +128,7 @@ struct ProfileRead {
     height: Option<serde_yaml::Value>,
     enrolled: Option<NaiveDate>,
     withdrew: Option<NaiveDate>,
+    withdrawal_reason: Option<WithdrawalReason>,
     groups: BTreeMap<String, serde_yaml::Value>,
     body_fat_percent: Option<f64>,
     targets: Option<TargetsDef>,
@@ -142,6 +148,7 @@ impl From<ProfileDef> for ProfileRead {
             height: Some(d.height),
             enrolled: Some(d.enrolled),
             withdrew: d.withdrew,
+            withdrawal_reason: d.withdrawal_reason,
             groups: d.groups,
             body_fat_percent: d.body_fat_percent,
             targets: d.targets,
@@ -175,6 +182,9 @@ fn read_profile(text: &str, ctx: &FileCtx, diags: &mut Vec<Diagnostic>) -> Optio
         height: f.get("height", true),
         enrolled: f.get("enrolled", true),
         withdrew: f.get::<Option<NaiveDate>>("withdrew", false).flatten(),
+        withdrawal_reason: f
+            .get::<Option<WithdrawalReason>>("withdrawal_reason", false)
+            .flatten(),
         groups: f.get("groups", false).unwrap_or_default(),
         body_fat_percent: f.get::<Option<f64>>("body_fat_percent", false).flatten(),
         targets: f.get::<Option<TargetsDef>>("targets", false).flatten(),
@@ -415,6 +425,23 @@ pub fn parse_profile(
                 .found(wd.to_string()),
         ));
     }
+    // A reason says what the withdrawal on `withdrew` was; without the day it says nothing,
+    // and `stopped_program` alone would read as a withdrawal with no date.
+    if given("withdrawal_reason", def.withdrawal_reason.is_some())
+        && !given("withdrew", def.withdrew.is_some())
+    {
+        let found = match def.withdrawal_reason {
+            Some(r) => format!("`{}` and no `withdrew`", r.as_str()),
+            None => "no `withdrew`".to_string(),
+        };
+        diags.push(at(
+            "withdrawal_reason",
+            ctx.error("`withdrawal_reason` is given without `withdrew`")
+                .expected("`withdrew: YYYY-MM-DD` with it, or no `withdrawal_reason`")
+                .found(found)
+                .hint("add the day the participant left as `withdrew:`, or remove `withdrawal_reason` if they did not leave"),
+        ));
+    }
     let mut groups = BTreeMap::new();
     for (k, v) in &def.groups {
         let text = match v {
@@ -523,6 +550,7 @@ pub fn parse_profile(
         height: height?,
         enrolled: def.enrolled?,
         withdrew: def.withdrew,
+        withdrawal_reason: def.withdrawal_reason.unwrap_or_default(),
         groups,
         body_fat_percent,
         targets: def
@@ -901,6 +929,84 @@ flags: [glucose-lowering-medication]
         let (p, d) = parse(&GOOD.replace("enrolled: 2027-03-01", "enrolled: 2027-02-30"));
         assert!(p.is_none());
         assert_eq!(d[0].line, Some(6));
+    }
+
+    /// `withdrew:` alone read as withdrawn consent, with no way to say that someone only
+    /// stopped the program. `withdrawal_reason` says which; the default is consent.
+    #[test]
+    fn the_withdrawal_reason_is_read_and_defaults_to_consent() {
+        let (p, d) = parse(GOOD);
+        assert!(d.is_empty(), "{d:?}");
+        let p = p.unwrap();
+        assert_eq!(p.withdrawal_reason, WithdrawalReason::Consent);
+        assert!(!p.follow_up_weigh_ins());
+        let stopped = GOOD.replace(
+            "withdrew: 2027-06-20\n",
+            "withdrew: 2027-06-20\nwithdrawal_reason: stopped_program\n",
+        );
+        let (p, d) = parse(&stopped);
+        assert!(d.is_empty(), "{d:?}");
+        let p = p.unwrap();
+        assert_eq!(p.withdrawal_reason, WithdrawalReason::StoppedProgram);
+        assert!(p.follow_up_weigh_ins());
+        let (p, d) = parse(&stopped.replace("stopped_program", "consent"));
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(p.unwrap().withdrawal_reason, WithdrawalReason::Consent);
+    }
+
+    #[test]
+    fn an_unknown_withdrawal_reason_is_a_located_error() {
+        let (p, d) = parse(&GOOD.replace(
+            "withdrew: 2027-06-20\n",
+            "withdrew: 2027-06-20\nwithdrawal_reason: moved away\n",
+        ));
+        assert!(p.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, Severity::Error);
+        assert_eq!(d[0].file, "participants/LW-0147/profile.yaml");
+        assert_eq!((d[0].line, d[0].column), (Some(8), Some(20)), "{}", d[0]);
+        assert_eq!(d[0].found.as_deref(), Some("`moved away`"), "{}", d[0]);
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("`consent` or `stopped_program`"),
+            "{}",
+            d[0]
+        );
+        assert_eq!(
+            d[0].message,
+            "unknown variant `moved away`, expected `consent` or `stopped_program`"
+        );
+        assert_eq!(d[0].field.as_deref(), Some("withdrawal_reason"));
+    }
+
+    #[test]
+    fn a_withdrawal_reason_without_withdrew_is_a_located_error() {
+        let (p, d) = parse(&GOOD.replace(
+            "withdrew: 2027-06-20\n",
+            "withdrawal_reason: stopped_program\n",
+        ));
+        assert!(p.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].severity, Severity::Error);
+        assert_eq!(d[0].file, "participants/LW-0147/profile.yaml");
+        assert_eq!(
+            d[0].message,
+            "`withdrawal_reason` is given without `withdrew`"
+        );
+        assert_eq!(d[0].field.as_deref(), Some("withdrawal_reason"));
+        assert_eq!((d[0].line, d[0].column), (Some(7), Some(20)), "{}", d[0]);
+        assert_eq!(
+            d[0].found.as_deref(),
+            Some("`stopped_program` and no `withdrew`")
+        );
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("`withdrew: YYYY-MM-DD` with it, or no `withdrawal_reason`")
+        );
+        // `consent` without a day is refused too: it would say nothing.
+        let (p, d) = parse(&GOOD.replace("withdrew: 2027-06-20\n", "withdrawal_reason: consent\n"));
+        assert!(p.is_none());
+        assert_eq!(d[0].found.as_deref(), Some("`consent` and no `withdrew`"));
     }
 
     #[test]

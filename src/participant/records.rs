@@ -78,6 +78,10 @@ pub struct Window {
     pub enrolled: Option<NaiveDate>,
     /// Withdrawal date (data after it are dropped), when any.
     pub withdrew: Option<NaiveDate>,
+    /// Weigh-ins dated after `withdrew` are kept as follow-up (`withdrawal_reason:
+    /// stopped_program`): only the weights file reads them; every other file still drops its
+    /// rows after the withdrawal (they are program activity).
+    pub follow_up_weigh_ins: bool,
     /// The run's "today": later data are future data and dropped.
     pub as_of: NaiveDate,
     /// The profile's height, cm, when known: weigh-ins that give no adult's BMI in the unit
@@ -375,7 +379,9 @@ fn dedupe<T: SameValue>(
     out
 }
 
-/// Drops rows dated after `as_of`, before enrolment or after withdrawal.
+/// Drops rows dated after `as_of`, before enrolment or after withdrawal (after withdrawal only
+/// when `drop_after_withdrawal`; the weights file of someone who stopped the program keeps its
+/// later weigh-ins as follow-up).
 ///
 /// One such row is named on its own; several of one kind are named in one warning at the
 /// first of them, with their number and dates. A re-issue of an earlier month (an early
@@ -385,6 +391,7 @@ fn dedupe<T: SameValue>(
 fn in_window<T>(
     rows: Vec<Parsed<T>>,
     w: &Window,
+    drop_after_withdrawal: bool,
     table: &Table,
     ctx: &FileCtx,
     diags: &mut Vec<Diagnostic>,
@@ -402,7 +409,9 @@ fn in_window<T>(
         } else if let Some(e) = w.enrolled.filter(|e| d < *e) {
             Some(Out::BeforeEnrolment(e))
         } else {
-            w.withdrew.filter(|x| d > *x).map(Out::AfterWithdrawal)
+            w.withdrew
+                .filter(|x| drop_after_withdrawal && d > *x)
+                .map(Out::AfterWithdrawal)
         }
     };
     // (kind, first line, earliest and latest date, count), in the order first met.
@@ -950,7 +959,8 @@ pub fn parse_weights(
             r
         })
         .collect();
-    let rows = in_window(rows, w, &table, ctx, diags);
+    // Follow-up weigh-ins after a withdrawal are read only for someone who stopped the program.
+    let rows = in_window(rows, w, !w.follow_up_weigh_ins, &table, ctx, diags);
     table.describe(opts, ctx);
 
     // A weigh-in in the wrong unit: compare with the median of the other weigh-ins within
@@ -1485,7 +1495,7 @@ pub fn parse_intake(
         return None;
     }
     note_identical_same_day(&rows, "intake", ctx);
-    let rows = in_window(rows, w, &table, ctx, diags);
+    let rows = in_window(rows, w, true, &table, ctx, diags);
     table.describe(opts, ctx);
     let rows = drop_total_rows(rows, &table, ctx, diags);
 
@@ -2057,7 +2067,7 @@ pub fn parse_activity(
     }
     diags.extend(more);
     note_identical_same_day(&rows, "activity", ctx);
-    let rows = in_window(rows, w, &table, ctx, diags);
+    let rows = in_window(rows, w, true, &table, ctx, diags);
     table.describe(opts, ctx);
 
     let mut per_day: BTreeMap<NaiveDate, f64> = BTreeMap::new();
@@ -2126,7 +2136,7 @@ pub fn parse_sessions(
         Some((session, attended))
     });
     let rows = dedupe(rows, ctx, diags);
-    let rows = in_window(rows, w, &table, ctx, diags);
+    let rows = in_window(rows, w, true, &table, ctx, diags);
     table.describe(opts, ctx);
     let mut out: Vec<SessionRecord> = rows
         .into_iter()
@@ -2434,7 +2444,7 @@ pub fn parse_labs(
         Some(out)
     });
     let rows = dedupe(rows, ctx, diags);
-    let rows = in_window(rows, w, &table, ctx, diags);
+    let rows = in_window(rows, w, true, &table, ctx, diags);
     table.describe(opts, ctx);
     let mut out: Vec<LabResult> = rows
         .into_iter()

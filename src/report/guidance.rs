@@ -558,6 +558,8 @@ struct Facts {
     units: UnitSystem,
     sex: Sex,
     withdrew: Option<NaiveDate>,
+    /// Weigh-ins after `withdrew` are read as follow-up (`withdrawal_reason: stopped_program`).
+    follow_up: bool,
     weight_kg: Option<f64>,
     slope: Option<Est>,
     implied: Option<Est>,
@@ -594,6 +596,7 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
         units: plan.program.info.units,
         sex: data.profile.sex,
         withdrew: data.profile.withdrew,
+        follow_up: data.profile.follow_up_weigh_ins(),
         weight_kg: trend
             .and_then(|t| t.current_weight_kg.value)
             .or_else(|| v.outcomes.as_ref().and_then(|o| o.current_weight_kg.value)),
@@ -694,9 +697,18 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
                 .withdrew
                 .map(|d| format!(" on {}", fmt::date(d)))
                 .unwrap_or_default();
-            g.paragraphs.push(format!(
-                "As you left the program{when}, this report sums up your records up to then and makes no suggestions for change."
-            ));
+            g.paragraphs.push(if f.follow_up {
+                // Stopped the program, consent kept: later weigh-ins are follow-up for the
+                // program's outcome figures (ICH E9(R1), 2019, treatment-policy strategy),
+                // not a start of advice.
+                format!(
+                    "As you left the program{when}, this report makes no suggestions for change. Weigh-ins after that day are follow-up only: they are shown in your weight figures, and nothing in this report is advice for the time since you left."
+                )
+            } else {
+                format!(
+                    "As you left the program{when}, this report sums up your records up to then and makes no suggestions for change."
+                )
+            });
             g.paragraphs.push(
                 "If you would like to talk about picking up again, or about anything in this report, please contact the program staff.".into(),
             );
@@ -1566,6 +1578,7 @@ mod tests {
             units: UnitSystem::Metric,
             sex: Sex::Female,
             withdrew: None,
+            follow_up: false,
             weight_kg: Some(80.0),
             slope: Some(Est {
                 value: 0.0,

@@ -274,7 +274,7 @@ pub fn build(
             v.trend.as_ref(),
             v.outcomes.as_ref(),
             units,
-            left,
+            left.map(|w| (w, p.follow_up_weigh_ins())),
             // Joined within the last four weeks of the period: the trend has had no four
             // weeks to show.
             Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
@@ -646,7 +646,9 @@ fn headline(
     trend: Option<&TrendView>,
     outcomes: Option<&OutcomesView>,
     units: UnitSystem,
-    left: Option<NaiveDate>,
+    // The day they left, and whether later weigh-ins are read as follow-up (stopped the
+    // program rather than withdrew consent).
+    left: Option<(NaiveDate, bool)>,
     joined_recently: Option<NaiveDate>,
     weighs_in_enough: bool,
 ) -> String {
@@ -659,12 +661,23 @@ fn headline(
     let rate_s = rate
         .map(|r| fmt::rate_per_week(r, units))
         .unwrap_or_default();
-    // Someone who has left gets no "last four weeks" status: their records stop at leaving.
-    if let Some(w) = left {
-        return format!(
-            "You left the program on {}; this report shows your records up to then.{since}",
-            fmt::date(w)
-        );
+    // Someone who has left gets no "last four weeks" status: their records stop at leaving,
+    // or, when they only stopped the program, their later weigh-ins are follow-up (counted in
+    // the program's outcome figures) and nothing here is advice for the time since.
+    match left {
+        Some((w, false)) => {
+            return format!(
+                "You left the program on {}; this report shows your records up to then.{since}",
+                fmt::date(w)
+            );
+        }
+        Some((w, true)) => {
+            return format!(
+                "You left the program on {}. Weigh-ins after that day are follow-up only: they are included in your weight figures, and this report makes no suggestions for the time since you left.{since}",
+                fmt::date(w)
+            );
+        }
+        None => {}
     }
     let lead = match status {
         // "Going down by" carries the sign already: "by about 1.32 kg/week", not "−1.32".

@@ -361,6 +361,10 @@ pub struct TidyRecord {
     participant_id: String,
     enrolled: String,
     withdrew: Option<String>,
+    /// Beside `withdrew`; a record written before the column existed reads as none (every
+    /// withdrawal was withdrawn consent then, and another build's record is never reused).
+    #[serde(default)]
+    withdrawal_reason: Option<String>,
     started: bool,
     completer: bool,
     groups: BTreeMap<String, String>,
@@ -380,6 +384,7 @@ impl TidyRecord {
             participant_id: t.participant_id,
             enrolled: t.enrolled,
             withdrew: t.withdrew,
+            withdrawal_reason: t.withdrawal_reason,
             started: t.started,
             completer: t.completer,
             groups: t.groups,
@@ -414,6 +419,7 @@ impl TidyRecord {
             participant_id: self.participant_id,
             enrolled: self.enrolled,
             withdrew: self.withdrew,
+            withdrawal_reason: self.withdrawal_reason,
             started: self.started,
             completer: self.completer,
             groups: self.groups,

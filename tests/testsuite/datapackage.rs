@@ -299,6 +299,11 @@ fn participants_csv_tells_enrolment_withdrawal_and_who_counts_as_a_completer() {
         (&sg001[withdrew], &sg001[started], &sg001[completer]),
         ("", "true", "true")
     );
+    // What the withdrawal was, beside its day (profile.yaml's `withdrawal_reason`, default
+    // consent), and empty without one.
+    let reason = col("withdrawal_reason");
+    assert_eq!(reason, withdrew + 1, "{header:?}");
+    assert_eq!((&sg018[reason], &sg001[reason]), ("consent", ""));
     // The group report's primary analysis, repeated from the tidy file: a completer's change,
     // everybody else who started counted as no change.
     let bocf: Vec<f64> = rows

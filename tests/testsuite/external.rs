@@ -81,6 +81,7 @@ fn participant(id: &str, steps: &[(NaiveDate, f64)]) -> ParticipantData {
             height: Length::from_cm(164.0),
             enrolled: day(3, 1),
             withdrew: None,
+            withdrawal_reason: Default::default(),
             groups: BTreeMap::from([("site".to_string(), "East Yard".to_string())]),
             body_fat_percent: None,
             targets: Targets::default(),

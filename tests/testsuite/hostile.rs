@@ -795,6 +795,7 @@ mod readers {
             let w = Window {
                 enrolled: chrono::NaiveDate::from_ymd_opt(2026, 4, 1),
                 withdrew: None,
+                follow_up_weigh_ins: false,
                 as_of: chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap(),
                 height_cm: None,
                 high_bmi_checked: false,

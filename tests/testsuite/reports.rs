@@ -1435,6 +1435,153 @@ fn group_value(shown: &serde_json::Value) -> Option<f64> {
     shown.get("value").and_then(|v| v.as_f64())
 }
 
+/// Every withdrawal was withdrawn consent: a participant who only stopped the program and came
+/// back to the scale had the follow-up weigh-in dropped, so the group report had no weight at
+/// the time point for them. With `withdrawal_reason: stopped_program` the follow-up weigh-in
+/// gives them one (a completer), retention still counts them as discontinued, and their own
+/// report says the later weigh-ins are follow-up only, with no advice. A follow-up weigh-in
+/// after withdrawn consent (the default) is still not read.
+#[test]
+fn a_follow_up_weigh_in_after_stopping_the_program_gives_a_weight_at_the_time_point() {
+    // The sample with every whole-program count printed exactly (no split, cells from 3; its
+    // four withdrawals are a count of 4), HTML only.
+    let sample = || {
+        let prog = ProgramTest::sample();
+        let yaml = prog.dir.join("program.yaml");
+        let text = std::fs::read_to_string(&yaml).unwrap();
+        let changed = text
+            .replace("formats: [html, pdf]", "formats: [html]")
+            .replace("group_by: [site]", "group_by: []")
+            .replace("min_cell_size: 11", "min_cell_size: 3");
+        assert_eq!(changed.matches(": [html]").count(), 1, "{changed}");
+        assert!(changed.contains("min_cell_size: 3") && changed.contains("group_by: []"));
+        std::fs::write(&yaml, changed).unwrap();
+        prog
+    };
+    let run = |prog: ProgramTest| {
+        let outcome = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+        // The sample has one planted folder without a profile: participant errors, exit 4.
+        assert_eq!(outcome.code, 4, "{}", outcome.stderr);
+        SampleRun { prog, outcome }
+    };
+    let before = &run(sample());
+    let prog = sample();
+    let folder = |id: &str| prog.dir.join("participants").join(id);
+    // SG-018 left on 2026-07-27 and stopped the program; SG-020 left on 2026-07-21 and
+    // withdrew consent. Each weighs in once more in the period (September 2026, the sample's last
+    // month, ten days before its end).
+    let profile = folder("SG-018").join("profile.yaml");
+    let text = std::fs::read_to_string(&profile).unwrap();
+    assert!(text.contains("withdrew: 2026-07-27\n"), "{text}");
+    std::fs::write(
+        &profile,
+        text.replace(
+            "withdrew: 2026-07-27\n",
+            "withdrew: 2026-07-27\nwithdrawal_reason: stopped_program\n",
+        ),
+    )
+    .unwrap();
+    for (id, row) in [
+        ("SG-018", "2026-09-20,07:00,87.6,kg,home-scale\n"),
+        ("SG-020", "2026-09-20,07:00,105.9,kg,home-scale\n"),
+    ] {
+        let weights = folder(id).join("weights.csv");
+        let mut text = std::fs::read_to_string(&weights).unwrap();
+        assert!(text.ends_with('\n') && text.starts_with("date,time,weight,unit,source"));
+        text.push_str(row);
+        std::fs::write(&weights, text).unwrap();
+    }
+    let after = run(prog);
+
+    let row = |run: &SampleRun, id: &str| {
+        tidy_rows(run)
+            .into_iter()
+            .find(|r| r["participant_id"] == id)
+            .unwrap()
+    };
+    let cells = |r: &BTreeMap<String, String>| {
+        ["withdrew", "withdrawal_reason", "started", "completer"].map(|c| r[c].clone())
+    };
+    assert_eq!(
+        cells(&row(before, "SG-018")),
+        ["2026-07-27", "consent", "true", "false"]
+    );
+    let sg018 = row(&after, "SG-018");
+    assert_eq!(
+        cells(&sg018),
+        ["2026-07-27", "stopped_program", "true", "true"]
+    );
+    assert_eq!(num(&sg018, "trend.days_since_last_weigh_in"), Some(10.0));
+    let current = num(&sg018, "trend.current_weight_kg").unwrap();
+    assert!((current - 87.6).abs() < 1.5, "{current}");
+    // Consent: the follow-up weigh-in is not read, as before.
+    assert_eq!(
+        cells(&row(&after, "SG-020")),
+        ["2026-07-21", "consent", "true", "false"]
+    );
+    assert_eq!(
+        row(&after, "SG-020")["trend.current_weight_kg"],
+        row(before, "SG-020")["trend.current_weight_kg"]
+    );
+    // Nobody else changed.
+    let others = |run: &SampleRun| {
+        tidy_rows(run)
+            .into_iter()
+            .filter(|r| r["participant_id"] != "SG-018" && r["participant_id"] != "SG-020")
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(others(before), others(&after));
+
+    // The group report: one more with a weight at the time point, retention unchanged.
+    let enrolment = |run: &SampleRun| {
+        let g: serde_json::Value = serde_json::from_str(&run.read("metrics/group.json")).unwrap();
+        g["program"]["stats"]["enrolment"].clone()
+    };
+    let (e0, e1) = (enrolment(before), enrolment(&after));
+    let exact = |e: &serde_json::Value, k: &str| {
+        e[k]["value"]
+            .as_f64()
+            .unwrap_or_else(|| panic!("{k} not shown exactly: {e}"))
+    };
+    let started = exact(&e0, "started");
+    assert_eq!(exact(&e0, "discontinued"), 4.0, "{e0}");
+    for key in [
+        "started",
+        "withdrawn",
+        "retained",
+        "discontinued",
+        "retention_percent",
+    ] {
+        assert_eq!(exact(&e0, key), exact(&e1, key), "{key}");
+    }
+    assert_eq!(exact(&e1, "retained"), started - 4.0);
+    let with0 = exact(&e0, "with_outcome");
+    assert_eq!(exact(&e1, "with_outcome"), with0 + 1.0, "{e1}");
+    assert_eq!(exact(&e1, "without_outcome"), started - with0 - 1.0, "{e1}");
+
+    // Their own report: left on that day, later weigh-ins follow-up only, no advice.
+    let html = after.read("participants/SG-018.html");
+    assert!(
+        html.contains(
+            "You left the program on 27 Jul 2026. Weigh-ins after that day are follow-up only"
+        ),
+        "{html}"
+    );
+    assert!(html.contains(
+        "this report makes no suggestions for change. Weigh-ins after that day are follow-up only"
+    ));
+    assert!(!html.contains("What to try next"));
+    let before_html = before.read("participants/SG-018.html");
+    assert!(before_html.contains("this report shows your records up to then"));
+    assert!(!before_html.contains("follow-up only"));
+    // The methods box says what a stopped program does.
+    let group = after.read("group/program.html");
+    assert!(
+        group.contains("recorded as having only stopped the program"),
+        "{group}"
+    );
+}
+
 /// The group report's whole-program figures, recomputed independently of the group module from
 /// the participant-level tidy metrics (`metrics/participants.csv`): the intention-to-treat
 /// denominator is everyone with a baseline weight; someone whose last weigh-in is 28 days or more

@@ -51,6 +51,7 @@ pub fn participant_data(p: &Person, targets: &Targets) -> ParticipantData {
         height: Length::from_cm((p.height_cm * 10.0).round() / 10.0),
         enrolled: day0(),
         withdrew: p.withdrew.map(date),
+        withdrawal_reason: Default::default(),
         groups: BTreeMap::new(),
         body_fat_percent: None,
         targets: targets.clone(),

@@ -28,6 +28,7 @@ fn profile(enrolled: &str) -> Profile {
         height: Length::from_cm(165.0),
         enrolled: d(enrolled),
         withdrew: None,
+        withdrawal_reason: Default::default(),
         groups: BTreeMap::new(),
         body_fat_percent: None,
         targets: Targets::default(),

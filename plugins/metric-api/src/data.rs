@@ -38,6 +38,12 @@ pub struct Profile {
     pub enrolled: NaiveDate,
     /// Withdrawal date, when the participant left.
     pub withdrew: Option<NaiveDate>,
+    /// What the withdrawal was (meaningful only with `withdrew`): withdrawn consent (the
+    /// default; nothing dated after `withdrew` is read) or only the program stopped (later
+    /// weigh-ins are read as follow-up). Left out of the protocol's JSON when it is the
+    /// default, so the request is the same as before the field existed.
+    #[serde(default, skip_serializing_if = "WithdrawalReason::is_consent")]
+    pub withdrawal_reason: WithdrawalReason,
     /// Group attributes (site, team, …).
     pub groups: BTreeMap<String, String>,
     /// Baseline body fat, % of body weight, when measured.
@@ -48,7 +54,43 @@ pub struct Profile {
     pub flags: Vec<String>,
 }
 
+/// Why a participant left (`withdrawal_reason:` in profile.yaml). Under the treatment-policy
+/// strategy an intention-to-treat analysis keeps the weigh-ins of someone who only stopped the
+/// intervention, while data after a withdrawal of consent must not be used (ICH E9(R1), 2019;
+/// CONSORT 2010 flow diagram: "discontinued intervention" apart from withdrawn).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum WithdrawalReason {
+    /// Withdrew consent to the use of their data: nothing dated after `withdrew` is read.
+    #[default]
+    Consent,
+    /// Stopped the program (discontinued the intervention): weigh-ins dated after `withdrew`
+    /// are read as follow-up; food, activity, session and lab rows after it are not.
+    StoppedProgram,
+}
+
+impl WithdrawalReason {
+    /// The value as profile.yaml and the tidy metrics write it.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            WithdrawalReason::Consent => "consent",
+            WithdrawalReason::StoppedProgram => "stopped_program",
+        }
+    }
+
+    /// Whether this is the default, withdrawn consent.
+    pub fn is_consent(&self) -> bool {
+        *self == WithdrawalReason::Consent
+    }
+}
+
 impl Profile {
+    /// Whether weigh-ins dated after `withdrew` are read (as follow-up): only for someone who
+    /// stopped the program, never after withdrawn consent.
+    pub fn follow_up_weigh_ins(&self) -> bool {
+        self.withdrew.is_some() && self.withdrawal_reason == WithdrawalReason::StoppedProgram
+    }
+
     /// Age in years on day `d` (fractional), from the birth date when known.
     pub fn age_on(&self, d: NaiveDate) -> f64 {
         match self.birth_date {

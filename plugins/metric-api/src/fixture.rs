@@ -102,6 +102,7 @@ pub fn participant() -> ParticipantData {
             height: Length::from_cm(165.0),
             enrolled: start(),
             withdrew: None,
+            withdrawal_reason: Default::default(),
             groups: BTreeMap::new(),
             body_fat_percent: None,
             targets: Targets::default(),

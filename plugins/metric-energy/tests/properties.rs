@@ -195,6 +195,7 @@ fn implied_intake_interval_covers_the_true_intake() {
                 height: Length::from_cm(180.0),
                 enrolled,
                 withdrew: None,
+                withdrawal_reason: Default::default(),
                 groups: Default::default(),
                 body_fat_percent: None,
                 targets: Targets::default(),

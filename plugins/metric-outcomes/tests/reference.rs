@@ -232,6 +232,7 @@ fn participant(sex: Sex, height_cm: f64) -> ParticipantData {
             height: Length::from_cm(height_cm),
             enrolled: d(START),
             withdrew: None,
+            withdrawal_reason: Default::default(),
             groups: BTreeMap::new(),
             body_fat_percent: None,
             targets: Targets::default(),

@@ -71,6 +71,7 @@ fn main() {
                     height: Length::from_cm(175.0),
                     enrolled: start,
                     withdrew: None,
+                    withdrawal_reason: Default::default(),
                     groups: BTreeMap::new(),
                     body_fat_percent: None,
                     targets: Targets::default(),

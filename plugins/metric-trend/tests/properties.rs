@@ -51,6 +51,7 @@ fn participant(weights: &[(i64, f64)]) -> ParticipantData {
             height: Length::from_cm(168.0),
             enrolled: day0(),
             withdrew: None,
+            withdrawal_reason: Default::default(),
             groups: BTreeMap::new(),
             body_fat_percent: None,
             targets: Targets::default(),

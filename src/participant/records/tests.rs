@@ -9,6 +9,7 @@ fn window() -> Window {
     Window {
         enrolled: Some(d(2026, 4, 1)),
         withdrew: None,
+        follow_up_weigh_ins: false,
         as_of: d(2026, 12, 1),
         height_cm: None,
         high_bmi_checked: false,
@@ -619,6 +620,7 @@ fn dates_outside_the_window_are_dropped() {
     let w = Window {
         enrolled: Some(d(2026, 4, 1)),
         withdrew: Some(d(2026, 8, 31)),
+        follow_up_weigh_ins: false,
         as_of: d(2026, 12, 1),
         height_cm: None,
         high_bmi_checked: false,
@@ -649,6 +651,56 @@ fn dates_outside_the_window_are_dropped() {
     assert_eq!(diags[2].column, Some(1));
 }
 
+/// Every withdrawal was read as withdrawn consent: a weigh-in after `withdrew` was dropped even
+/// for someone who had only stopped the program. With `withdrawal_reason: stopped_program`
+/// (`follow_up_weigh_ins`) the weights file keeps it as follow-up; the food log, program
+/// activity, still drops its rows after the day; with consent both drop them as before.
+#[test]
+fn weigh_ins_after_withdrawal_are_read_only_for_someone_who_stopped_the_program() {
+    let weights = "date,weight,unit\n2026-08-30,80,kg\n2026-08-31,79.8,kg\n2026-09-14,79.1,kg\n";
+    let food = "date,kcal\n2026-08-31,1900\n2026-09-14,2100\n";
+    for stopped in [false, true] {
+        let w = Window {
+            withdrew: Some(d(2026, 8, 31)),
+            follow_up_weigh_ins: stopped,
+            ..window()
+        };
+        let (out, diags) = read(weights, &w);
+        let out = out.unwrap();
+        let dates: Vec<_> = out.iter().map(|x| x.date).collect();
+        if stopped {
+            assert_eq!(dates, [d(2026, 8, 30), d(2026, 8, 31), d(2026, 9, 14)]);
+            assert_eq!(out[2].weight.kg(), 79.1);
+            assert!(diags.is_empty(), "{diags:#?}");
+        } else {
+            assert_eq!(dates, [d(2026, 8, 30), d(2026, 8, 31)]);
+            assert_eq!(diags.len(), 1, "{diags:#?}");
+            assert_eq!(
+                diags[0].message,
+                "date 2026-09-14 is after withdrawal (2026-08-31); the row is dropped"
+            );
+            assert_eq!(diags[0].line, Some(4));
+        }
+        let mut diags = Vec::new();
+        let kcal = parse_intake(
+            food,
+            &CsvOptions::default(),
+            &ctx("intake.csv"),
+            &w,
+            &mut diags,
+        )
+        .unwrap();
+        assert_eq!(kcal.len(), 1, "stopped {stopped}: {kcal:?}");
+        assert_eq!((kcal[0].date, kcal[0].kcal), (d(2026, 8, 31), 1900.0));
+        assert_eq!(diags.len(), 1, "{diags:#?}");
+        assert!(
+            diags[0].message.contains("after withdrawal (2026-08-31)"),
+            "{}",
+            diags[0]
+        );
+    }
+}
+
 /// A re-issue of an earlier month (an early as-of) leaves every later row out: one warning per
 /// file says how many and from when to when, at the first of them; it was one per row (69 notes
 /// in one participant's re-issued report).
@@ -658,6 +710,7 @@ fn many_rows_after_the_as_of_date_are_one_warning() {
     let w = Window {
         enrolled: Some(d(2026, 4, 1)),
         withdrew: None,
+        follow_up_weigh_ins: false,
         as_of: d(2026, 7, 1),
         height_cm: None,
         high_bmi_checked: false,

@@ -25,6 +25,7 @@ fn profile(sex: Sex, height_cm: f64, age: f64, enrolled: NaiveDate) -> Profile {
         height: Length::from_cm(height_cm),
         enrolled,
         withdrew: None,
+        withdrawal_reason: Default::default(),
         groups: Default::default(),
         body_fat_percent: None,
         targets: Targets::default(),
