@@ -202,14 +202,12 @@ impl Table {
         if self.date_rows_in.is_some() {
             return false;
         }
-        let kept: Vec<usize> = ["date", "time", "unit", "source"]
-            .iter()
-            .filter_map(|c| self.columns.get(c).copied())
-            .collect();
-        self.width > kept.len()
-            && (0..self.width)
-                .filter(|i| !kept.contains(i))
-                .all(|i| self.field(row, i).is_none_or(is_placeholder))
+        // (An array, not a Vec: this runs for every row of every file.)
+        let kept = ["date", "time", "unit", "source"].map(|c| self.columns.get(c).copied());
+        let mut others = (0..self.width)
+            .filter(|i| !kept.contains(&Some(*i)))
+            .peekable();
+        others.peek().is_some() && others.all(|i| self.field(row, i).is_none_or(is_placeholder))
     }
 
     /// Counts `row` as one with nothing recorded, for the file's note.
