@@ -1267,3 +1267,36 @@ fn a_report_lists_the_latest_lab_values_not_a_whole_clinics_export() {
         "{section}"
     );
 }
+
+/// A weigh-in file of 49,000 rows on one day (a scale's raw log of readings) is checked within
+/// a CPU ceiling of 15 s: each weigh-in's unit check gathered and sorted its neighbours within
+/// 14 days, and every row had the other 48,999 as neighbours (76 s of CPU in a debug build, 16 s
+/// in a release build, for that one participant); now about 1 s in a debug build.
+#[test]
+fn a_scales_raw_log_of_one_day_is_checked_within_a_cpu_ceiling() {
+    let t = ProgramTest::demo(1);
+    let mut w = String::from("date,time,weight,unit\n");
+    for i in 0..49_000u32 {
+        w.push_str(&format!(
+            "2026-09-10,{:02}:{:02},{}.{i:05},kg\n",
+            i % 24,
+            (i / 24) % 60,
+            70 + i % 5
+        ));
+    }
+    std::fs::write(t.dir.join("participants/SG-001/weights.csv"), w).unwrap();
+    let o = Command::new("sh")
+        .arg("-c")
+        .arg("ulimit -t 15 && exec \"$0\" \"$@\"")
+        .arg(BIN)
+        .args(["check", &t.dir.to_string_lossy(), "--as-of", AS_OF])
+        .output()
+        .unwrap();
+    // Killed at the ceiling, the shell reports no exit code (SIGXCPU).
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{o:?}");
+    let out = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        out.contains("1 usable, 0 not usable; 0 errors, 0 warnings"),
+        "{out}"
+    );
+}
