@@ -529,6 +529,10 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
     files
 }
 
+/// The file that marks an import's staging folder as ours (`.cohortpress-import.staging/`), so
+/// that a leftover one is removed only when it is ours.
+const IMPORT_MARKER: &str = ".cohortpress-import";
+
 /// Why an import wrote nothing.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum ImportFailure {
@@ -642,13 +646,30 @@ pub fn import(
             format!("cannot write the import ({e})"),
         )
     };
-    if staging.exists() {
+    // A staging folder left by a killed import is removed; it is ours when it holds our marker
+    // (or nothing). Anything else under the name (a folder of someone's, a link) was removed
+    // with everything in it: it is refused, and nothing is written.
+    if let Ok(meta) = std::fs::symlink_metadata(&staging) {
+        let ours = meta.is_dir()
+            && (std::fs::symlink_metadata(staging.join(IMPORT_MARKER)).is_ok_and(|m| m.is_file())
+                || std::fs::read_dir(&staging).is_ok_and(|mut d| d.next().is_none()));
+        if !ours {
+            return Err((
+                ImportFailure::Write,
+                format!(
+                    "{} is in the way of the import's staging folder and was not made by \
+                     cohortpress; nothing was written (move it away and import again)",
+                    staging.display()
+                ),
+            ));
+        }
         std::fs::remove_dir_all(&staging).map_err(io)?;
     }
     let write = || -> Result<(), String> {
         let e = |e: std::io::Error| e.to_string();
         let synced = |r: Result<(), crate::output::StagingError>| r.map_err(|e| e.to_string());
         std::fs::create_dir_all(&staging).map_err(e)?;
+        std::fs::write(staging.join(IMPORT_MARKER), "").map_err(e)?;
         std::fs::create_dir_all(&base).map_err(e)?;
         let mut folders = Vec::new();
         for (pid, data) in &plan {

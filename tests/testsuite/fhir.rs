@@ -477,3 +477,51 @@ fn values_from_fhir_resources_reach_the_terminal_escaped() {
         2
     );
 }
+
+/// A folder of someone's under the import's staging name (`.cohortpress-import.staging`) was
+/// removed with everything in it by the next import; it is now refused and kept, and only a
+/// staging folder a killed import left (with its marker) is removed.
+#[test]
+fn a_folder_of_someones_under_the_staging_name_is_never_removed() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("p.ndjson");
+    fs::write(
+        &file,
+        json!({"resourceType": "Patient", "id": "P1", "gender": "female"}).to_string(),
+    )
+    .unwrap();
+    let program = dir.path().join("prog");
+    let staging = program.join(".cohortpress-import.staging");
+    fs::create_dir_all(&staging).unwrap();
+    fs::write(staging.join("mine.txt"), "my notes\n").unwrap();
+    let import = || {
+        std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+            .args(["import", "fhir"])
+            .arg(&file)
+            .arg("--out")
+            .arg(&program)
+            .output()
+            .unwrap()
+    };
+    let o = import();
+    assert_eq!(o.status.code(), Some(6), "{o:?}");
+    assert!(
+        String::from_utf8_lossy(&o.stderr).contains(
+            "is in the way of the import's staging folder and was not made by cohortpress"
+        ),
+        "{o:?}"
+    );
+    assert_eq!(
+        fs::read_to_string(staging.join("mine.txt")).unwrap(),
+        "my notes\n"
+    );
+    assert!(!program.join("participants/P1").exists());
+    // What a killed import leaves (its marker, a participant folder half written) is removed.
+    fs::remove_dir_all(&staging).unwrap();
+    fs::create_dir_all(staging.join("P1")).unwrap();
+    fs::write(staging.join(".cohortpress-import"), "").unwrap();
+    let o = import();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(program.join("participants/P1/profile.yaml").is_file());
+    assert!(!staging.exists());
+}
