@@ -505,6 +505,62 @@ pub fn value_from_str(text: &str, file: &str) -> Result<serde_yaml::Value, Diagn
 /// The YAML value type, re-exported so callers need not name the crate.
 pub type Value = serde_yaml::Value;
 
+/// Whether serde's `expected` names one of Rust's number types.
+fn is_number_type(exp: &str) -> bool {
+    matches!(
+        exp,
+        "f32" | "f64" | "u8" | "u16" | "u32" | "u64" | "usize" | "i8" | "i16" | "i32" | "i64"
+    )
+}
+
+/// A value of the wrong kind, in the words of the file's writer: serde names Rust's types and
+/// its own terms (`expected f64`, `expected u32`, `found: integer `…` as u128`, `expected a
+/// YAML tag starting with '!'` for `sex: [female]`), which told a program's staff nothing (and
+/// the last, nothing true). The message, `expected` and `found` say it plainly; anything not
+/// recognised is kept as serde wrote it.
+fn in_plain_words(mut d: Diagnostic, found: &str, exp: &str) -> Diagnostic {
+    let expected = match exp {
+        "f32" | "f64" => "a number",
+        "u8" => "a whole number from 0 to 255",
+        "u16" => "a whole number from 0 to 65,535",
+        "u32" => "a whole number from 0 to 4,294,967,295",
+        "u64" | "usize" => "a whole number of 0 or more",
+        "i8" | "i16" | "i32" | "i64" => "a whole number",
+        "a boolean" => "`true` or `false`",
+        "a string" => "text",
+        "a map" => "keys and values (`key: value`)",
+        "a sequence" => "a list (`[a, b]`, or one `- item` per line)",
+        // What serde_yaml expects of an enum written as a list or a mapping.
+        "a YAML tag starting with '!'" => "one value, not a list or keys and values",
+        other => other,
+    };
+    let quoted = |v: &str| format!("`{v}`");
+    let shown = if let Some(t) = found
+        .strip_prefix("string \"")
+        .and_then(|t| t.strip_suffix('"'))
+    {
+        quoted(t)
+    } else if let Some(n) = ["integer `", "floating point `", "boolean `"]
+        .iter()
+        .find_map(|p| found.strip_prefix(p))
+        .and_then(|n| n.split('`').next())
+    {
+        // `integer `99…9` as u128`: the number as written, without serde's type.
+        quoted(n)
+    } else {
+        match found {
+            "sequence" => "a list".to_string(),
+            "map" => "keys and values".to_string(),
+            "unit value" => "nothing (an empty value)".to_string(),
+            other => other.to_string(),
+        }
+    };
+    if expected != exp || shown != found {
+        d.message = format!("expected {expected}, found {shown}");
+    }
+    d.found(shown).expected(expected.to_string())
+}
+
 fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
     let full = e.to_string();
     // serde_yaml appends " at line L column C" (and for libyaml errors a second context
@@ -572,17 +628,19 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
                     });
             }
             found_exp => {
+                let mut hint = "quote text that YAML would read as a number or date, and check the value's kind";
                 if let Some((found, exp)) = found_exp {
-                    d = d.found(found.to_string()).expected(exp.to_string());
+                    d = in_plain_words(d, found, exp);
+                    if found.starts_with("string ") && is_number_type(exp) {
+                        hint = "write the number alone, without a unit or words (e.g. `45`)";
+                    }
                 }
-                d = d.hint(
-                    "quote text that YAML would read as a number or date, and check the value's kind",
-                );
+                d = d.hint(hint);
             }
         }
     } else if let Some(rest) = msg.strip_prefix("invalid value: ") {
         if let Some((found, exp)) = rest.split_once(", expected ") {
-            d = d.found(found.to_string()).expected(exp.to_string());
+            d = in_plain_words(d, found, exp);
         }
     } else if is_date_error(&msg) {
         d = d
@@ -682,6 +740,54 @@ mod tests {
         inner: Inner,
     }
 
+    /// A value of the wrong kind is said in the file writer's words, not in Rust's types.
+    #[test]
+    fn a_value_of_the_wrong_kind_is_said_in_plain_words() {
+        #[derive(Debug, Deserialize)]
+        #[serde(rename_all = "lowercase")]
+        #[allow(dead_code)]
+        enum Sex {
+            Female,
+            Male,
+        }
+        #[derive(Debug, Deserialize)]
+        #[allow(dead_code)]
+        struct Profile {
+            age: Option<f64>,
+            sex: Option<Sex>,
+            count: Option<u32>,
+        }
+        let err = |text: &str| from_str::<Profile>(text, "profile.yaml").unwrap_err();
+        let d = err("age: 45 years\n");
+        assert_eq!(d.message, "expected a number, found `45 years`");
+        assert_eq!(d.expected.as_deref(), Some("a number"));
+        assert_eq!(d.found.as_deref(), Some("`45 years`"));
+        assert_eq!(
+            d.hint.as_deref(),
+            Some("write the number alone, without a unit or words (e.g. `45`)")
+        );
+        // serde_yaml's words for an enum written as a list were "a YAML tag starting with '!'".
+        let d = err("sex:\n  - female\n");
+        assert_eq!(
+            d.message,
+            "expected one value, not a list or keys and values, found a list"
+        );
+        let d = err("count: 99999999999999999999999\n");
+        assert_eq!(
+            d.message,
+            "expected a whole number from 0 to 4,294,967,295, found `99999999999999999999999`"
+        );
+        let d = err("count: 4294967296\n");
+        assert_eq!(
+            (d.expected.as_deref(), d.found.as_deref()),
+            (
+                Some("a whole number from 0 to 4,294,967,295"),
+                Some("`4294967296`")
+            )
+        );
+        assert_eq!((d.line, d.column), (Some(1), Some(8)), "{d}");
+    }
+
     #[test]
     fn unknown_key_is_named_with_its_line() {
         let text = "name: a\ninner:\n  start: 2026-04-01\n  count: 3\n  colour: red\n";
@@ -775,8 +881,12 @@ mod tests {
         let text = "name: a\ninner:\n  start: 2026-02-03\n  count: many\n";
         let d = from_str::<Outer>(text, "x.yaml").unwrap_err();
         assert_eq!(d.line, Some(4), "{d}");
-        assert_eq!(d.found.as_deref(), Some("string \"many\""), "{d}");
-        assert!(d.expected.as_deref().unwrap().contains("u32"), "{d}");
+        assert_eq!(d.found.as_deref(), Some("`many`"), "{d}");
+        assert_eq!(
+            d.expected.as_deref(),
+            Some("a whole number from 0 to 4,294,967,295"),
+            "{d}"
+        );
     }
 
     #[test]

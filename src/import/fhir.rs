@@ -23,6 +23,7 @@
 //! already a plain id (letters, digits, `-`, `_`) is used as it is. Names are never copied.
 //! Existing participant folders are never changed: the import refuses them.
 
+use crate::diag::printable as shown;
 use crate::program::load::is_plain_id;
 use chrono::NaiveDate;
 use serde_json::Value;
@@ -190,7 +191,10 @@ impl Imported {
     }
 
     fn observation(&mut self, obs: &Value, urls: &BTreeMap<String, String>, origin: &str) {
-        let id = obs["id"].as_str().unwrap_or("(no id)");
+        // Every value quoted back from a resource is shown escaped (`diag::printable`): the
+        // summary goes to the terminal, and an id or unit holding ESC sequences cleared the
+        // screen or forged lines there.
+        let id = shown(obs["id"].as_str().unwrap_or("(no id)"));
         // Entered-in-error, cancelled and registered results are not results.
         if !matches!(
             obs["status"].as_str(),
@@ -226,7 +230,8 @@ impl Imported {
         let q = quantity(&obs["valueQuantity"]);
         let bad_unit = |this: &mut Self, unit: &str| {
             this.problems.push(format!(
-                "{origin}: Observation {id} (LOINC {code}) has unit `{unit}`, which is not read; it is skipped"
+                "{origin}: Observation {id} (LOINC {code}) has unit `{}`, which is not read; it is skipped",
+                shown(unit)
             ));
             this.skipped += 1;
         };
@@ -239,7 +244,8 @@ impl Imported {
                 found = found.chars().take(80).collect::<String>() + "…";
             }
             this.problems.push(format!(
-                "{origin}: Observation {id} (LOINC {code}) needs a valueQuantity with a numeric `value` and a UCUM `code`; found {found}; it is skipped"
+                "{origin}: Observation {id} (LOINC {code}) needs a valueQuantity with a numeric `value` and a UCUM `code`; found {}; it is skipped",
+                shown(&found)
             ));
             this.skipped += 1;
         };
@@ -349,7 +355,7 @@ impl Imported {
             .map_err(|e| format!("{}: cannot read the file ({e})", path.display()))?;
         let text = std::str::from_utf8(&bytes)
             .map_err(|_| format!("{}: the file is not UTF-8 JSON", path.display()))?;
-        let origin = path.display().to_string();
+        let origin = shown(&path.display().to_string()).into_owned();
         let none = BTreeMap::new();
         match serde_json::from_str::<Value>(text) {
             Ok(v) if v.is_object() => {
@@ -433,9 +439,10 @@ pub fn read_id_map(path: &Path) -> Result<BTreeMap<String, String>, String> {
         };
         if !is_plain_id(pid) {
             return Err(format!(
-                "{}:{}: `{pid}` is not a usable participant id (letters, digits, `-`, `_`; at most 64)",
+                "{}:{}: `{}` is not a usable participant id (letters, digits, `-`, `_`; at most 64)",
                 path.display(),
-                i + 1
+                i + 1,
+                shown(pid)
             ));
         }
         if !seen.insert(pid.to_string()) {
@@ -522,6 +529,10 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
     files
 }
 
+/// The file that marks an import's staging folder as ours (`.cohortpress-import.staging/`), so
+/// that a leftover one is removed only when it is ours.
+const IMPORT_MARKER: &str = ".cohortpress-import";
+
 /// Why an import wrote nothing.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum ImportFailure {
@@ -554,14 +565,15 @@ pub fn import(
             Some(m) => match m.get(fid) {
                 Some(p) => p.clone(),
                 None => {
-                    unmapped.push(fid.clone());
+                    unmapped.push(shown(fid).into_owned());
                     continue;
                 }
             },
             None if is_plain_id(fid) => fid.clone(),
             None => {
                 return Err(usage(format!(
-                    "FHIR patient id `{fid}` is not a usable participant id; give `--ids MAP.csv` with columns fhir_id,participant_id"
+                    "FHIR patient id `{}` is not a usable participant id; give `--ids MAP.csv` with columns fhir_id,participant_id",
+                    shown(fid)
                 )));
             }
         };
@@ -583,8 +595,9 @@ pub fn import(
                     .unwrap_or_default()
             };
             return Err(usage(format!(
-                "FHIR patients `{}` and `{fid}` would both be participant `{pid}`{}; one participant folder holds one person: map them to different ids with --ids, or merge their records first",
-                fid_of(other),
+                "FHIR patients `{}` and `{}` would both be participant `{pid}`{}; one participant folder holds one person: map them to different ids with --ids, or merge their records first",
+                shown(&fid_of(other)),
+                shown(fid),
                 if *other == pid {
                     String::new()
                 } else {
@@ -633,13 +646,30 @@ pub fn import(
             format!("cannot write the import ({e})"),
         )
     };
-    if staging.exists() {
+    // A staging folder left by a killed import is removed; it is ours when it holds our marker
+    // (or nothing). Anything else under the name (a folder of someone's, a link) was removed
+    // with everything in it: it is refused, and nothing is written.
+    if let Ok(meta) = std::fs::symlink_metadata(&staging) {
+        let ours = meta.is_dir()
+            && (std::fs::symlink_metadata(staging.join(IMPORT_MARKER)).is_ok_and(|m| m.is_file())
+                || std::fs::read_dir(&staging).is_ok_and(|mut d| d.next().is_none()));
+        if !ours {
+            return Err((
+                ImportFailure::Write,
+                format!(
+                    "{} is in the way of the import's staging folder and was not made by \
+                     cohortpress; nothing was written (move it away and import again)",
+                    staging.display()
+                ),
+            ));
+        }
         std::fs::remove_dir_all(&staging).map_err(io)?;
     }
     let write = || -> Result<(), String> {
         let e = |e: std::io::Error| e.to_string();
         let synced = |r: Result<(), crate::output::StagingError>| r.map_err(|e| e.to_string());
         std::fs::create_dir_all(&staging).map_err(e)?;
+        std::fs::write(staging.join(IMPORT_MARKER), "").map_err(e)?;
         std::fs::create_dir_all(&base).map_err(e)?;
         let mut folders = Vec::new();
         for (pid, data) in &plan {

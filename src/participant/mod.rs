@@ -312,13 +312,32 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
     let mut dirs = Vec::new();
     let mut diags = Vec::new();
     if !base.is_dir() {
-        diags.push(
-            Diagnostic::error(PARTICIPANTS_DIR, "the participants folder does not exist")
-                .expected(
-                    "a folder `participants/` beside program.yaml, with one folder per participant",
-                )
-                .hint("create it and put each participant's profile.yaml in its own folder"),
-        );
+        // Something else under the name (a file, a FIFO, a link to nothing: an unmounted
+        // share's mount point link) was reported as "does not exist", which sent people
+        // looking for a folder that is there.
+        let found = match std::fs::symlink_metadata(&base) {
+            Err(_) => None,
+            Ok(m) if m.file_type().is_symlink() => {
+                Some("a symbolic link to a folder that does not exist (a share not mounted?)")
+            }
+            Ok(m) => Some(crate::limits::kind_of(&m.file_type())),
+        };
+        let mut d = match found {
+            None => Diagnostic::error(PARTICIPANTS_DIR, "the participants folder does not exist"),
+            Some(kind) => Diagnostic::error(
+                PARTICIPANTS_DIR,
+                format!("`participants` is {kind}, not a folder"),
+            )
+            .found(kind),
+        };
+        d = d
+            .expected("a folder `participants/` beside program.yaml, with one folder per participant")
+            .hint(if found.is_some() {
+                "move it away and put each participant's profile.yaml in its own folder under a folder `participants/`"
+            } else {
+                "create it and put each participant's profile.yaml in its own folder"
+            });
+        diags.push(d);
         return (dirs, diags);
     }
     let walker = walkdir::WalkDir::new(&base)

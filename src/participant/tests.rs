@@ -35,6 +35,36 @@ fn participant(root: &Path, id: &str, files: &[(&str, &[u8])]) -> ParticipantDir
     }
 }
 
+/// Something else under the name `participants` is named for what it is: a file or a link to
+/// nothing was reported as "the participants folder does not exist".
+#[test]
+fn a_participants_file_or_dangling_link_is_named_for_what_it_is() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let base = tmp.path().join("participants");
+    fs::write(&base, "SG-001\n").unwrap();
+    let (dirs, diags) = discover(&p);
+    assert!(dirs.is_empty());
+    assert_eq!(diags.len(), 1);
+    assert_eq!(
+        diags[0].message,
+        "`participants` is a regular file, not a folder"
+    );
+    assert_eq!(diags[0].found.as_deref(), Some("a regular file"));
+    assert!(is_folder_error(&diags[0]));
+    fs::remove_file(&base).unwrap();
+    #[cfg(unix)]
+    {
+        std::os::unix::fs::symlink(tmp.path().join("share/participants"), &base).unwrap();
+        let (_, diags) = discover(&p);
+        assert_eq!(
+            diags[0].message,
+            "`participants` is a symbolic link to a folder that does not exist (a share not \
+             mounted?), not a folder"
+        );
+    }
+}
+
 #[test]
 fn discovery_is_sorted_and_refuses_bad_names() {
     let tmp = tempfile::tempdir().unwrap();

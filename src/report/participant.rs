@@ -43,8 +43,10 @@ pub struct ParticipantReportContext {
     pub plateaus: Vec<PlateauView>,
     /// "What to try next": the guidance the decision table chose (see [`super::guidance`]).
     pub guidance: GuidanceView,
-    /// Lab values with categories.
+    /// Lab values with categories: the latest [`MAX_LAB_ROWS_SHOWN`] of them.
     pub labs: Option<TableView>,
+    /// How many earlier lab values the table leaves out, in words (`None` when it shows all).
+    pub labs_not_shown: Option<String>,
     /// Flags raised by the modules (clinical ones first).
     pub flags: Vec<FlagView>,
     /// Why the figures may not be this participant's at all, shown before them: their
@@ -307,6 +309,7 @@ pub fn build(
         plateaus,
         guidance,
         labs: v.outcomes.as_ref().and_then(labs),
+        labs_not_shown: v.outcomes.as_ref().and_then(labs_not_shown),
         flags: flags(results),
         record_notice: diags
             .iter()
@@ -501,7 +504,37 @@ fn plateau_verdict(c: PlateauCause) -> &'static str {
     }
 }
 
-/// Lab values with their ranges, when there are any.
+/// The most lab values a participant report lists: the latest ones, in the order of the file
+/// (a program choice: five tests a month for four years). Every row costs the page and the PDF
+/// layout alike, and nothing bounded the table: a `labs.csv` of 50,000 rows (a whole clinic's
+/// export in one folder) made a 31 MB PDF of 35,000 rows, and 710 MB of memory and 7 s for
+/// that one participant, on every worker thread that met such a folder.
+pub const MAX_LAB_ROWS_SHOWN: usize = 250;
+
+/// The indices of the lab values the report lists: the latest [`MAX_LAB_ROWS_SHOWN`] by date
+/// (of one date, those further down the file), in the order of the file.
+fn labs_shown(o: &OutcomesView) -> Vec<usize> {
+    let mut by_date: Vec<usize> = (0..o.labs.len()).collect();
+    by_date.sort_by_key(|&i| o.labs[i].date);
+    let mut kept = by_date.split_off(by_date.len().saturating_sub(MAX_LAB_ROWS_SHOWN));
+    kept.sort_unstable();
+    kept
+}
+
+/// The sentence under a lab table that lists only the latest values.
+fn labs_not_shown(o: &OutcomesView) -> Option<String> {
+    let left_out = o.labs.len().saturating_sub(MAX_LAB_ROWS_SHOWN);
+    (left_out > 0).then(|| {
+        format!(
+            "The table lists your latest {} results; {} earlier {} not shown here (your program team has them).",
+            fmt::int(MAX_LAB_ROWS_SHOWN as f64),
+            fmt::int(left_out as f64),
+            if left_out == 1 { "one is" } else { "ones are" }
+        )
+    })
+}
+
+/// Lab values with their ranges, when there are any (the latest ones: [`labs_shown`]).
 fn labs(o: &OutcomesView) -> Option<TableView> {
     (!o.labs.is_empty()).then(|| TableView {
         header: vec![
@@ -511,9 +544,9 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
             "Also".into(),
             "Range".into(),
         ],
-        rows: o
-            .labs
-            .iter()
+        rows: labs_shown(o)
+            .into_iter()
+            .map(|i| &o.labs[i])
             .map(|l| {
                 let value = format!("{} {}", lab_number(l.test, l.value, &l.unit), l.unit);
                 let alt = match (l.value_alt, l.unit_alt.as_deref()) {

@@ -416,3 +416,112 @@ fn imported_files_are_synced_before_their_folders_are_moved_into_place() {
         calls.join("\n")
     );
 }
+
+/// What the import prints quotes values from the resources (observation ids, units, patient
+/// ids): a FHIR file holding terminal escape sequences there (ESC `]0;` sets the window title,
+/// ESC `[2J` clears the screen, a line break forges a line) printed them raw to the terminal,
+/// while every other command shows such characters escaped (`\u{1b}`).
+#[test]
+fn values_from_fhir_resources_reach_the_terminal_escaped() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("hostile.ndjson");
+    let weight = |id: &str, unit: &str| {
+        json!({"resourceType": "Observation", "id": id, "status": "final",
+            "code": {"coding": [{"system": LOINC, "code": BODY_WEIGHT}]},
+            "subject": {"reference": "Patient/P1"}, "effectiveDateTime": "2026-04-01",
+            "valueQuantity": {"value": 80.0, "code": unit}})
+        .to_string()
+    };
+    let lines = [
+        json!({"resourceType": "Patient", "id": "P1", "gender": "female"}).to_string(),
+        json!({"resourceType": "Patient", "id": "Q\u{1b}[2J\nskipped: forged"}).to_string(),
+        weight("w\u{1b}]0;title\u{7}", "[stone]"),
+        weight("w2", "st\u{1b}[31m\u{202e}"),
+    ];
+    fs::write(&file, lines.join("\n")).unwrap();
+    let map = dir.path().join("map.csv");
+    fs::write(&map, "fhir_id,participant_id\nP1,P1\n").unwrap();
+    let import = |ids: Option<&std::path::Path>| {
+        let mut c = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"));
+        c.args(["import", "fhir"])
+            .arg(&file)
+            .arg("--out")
+            .arg(dir.path().join("p"));
+        if let Some(m) = ids {
+            c.arg("--ids").arg(m);
+        }
+        c.output().unwrap()
+    };
+    // Without a map, the unusable patient id is the error.
+    let o = import(None);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8(o.stderr).unwrap();
+    assert_eq!(
+        err.trim_end(),
+        "error: FHIR patient id `Q\\u{1b}[2J\\nskipped: forged` is not a usable participant id; \
+         give `--ids MAP.csv` with columns fhir_id,participant_id"
+    );
+    // With a map: the unmapped patient, the observation id and the unit are quoted escaped.
+    let o = import(Some(&map));
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    let out = String::from_utf8(o.stdout).unwrap();
+    assert!(!out.contains(['\u{1b}', '\u{7}', '\u{202e}']), "{out:?}");
+    assert!(
+        out.contains("was left out: Q\\u{1b}[2J\\nskipped: forged\n"),
+        "{out}"
+    );
+    assert!(out.contains("Observation w\\u{1b}]0;title\\u{7} (LOINC 29463-7) has unit `[stone]`"));
+    assert!(out.contains("has unit `st\\u{1b}[31m\\u{202e}`, which is not read"));
+    assert_eq!(
+        out.lines().filter(|l| l.starts_with("skipped: ")).count(),
+        2
+    );
+}
+
+/// A folder of someone's under the import's staging name (`.cohortpress-import.staging`) was
+/// removed with everything in it by the next import; it is now refused and kept, and only a
+/// staging folder a killed import left (with its marker) is removed.
+#[test]
+fn a_folder_of_someones_under_the_staging_name_is_never_removed() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("p.ndjson");
+    fs::write(
+        &file,
+        json!({"resourceType": "Patient", "id": "P1", "gender": "female"}).to_string(),
+    )
+    .unwrap();
+    let program = dir.path().join("prog");
+    let staging = program.join(".cohortpress-import.staging");
+    fs::create_dir_all(&staging).unwrap();
+    fs::write(staging.join("mine.txt"), "my notes\n").unwrap();
+    let import = || {
+        std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+            .args(["import", "fhir"])
+            .arg(&file)
+            .arg("--out")
+            .arg(&program)
+            .output()
+            .unwrap()
+    };
+    let o = import();
+    assert_eq!(o.status.code(), Some(6), "{o:?}");
+    assert!(
+        String::from_utf8_lossy(&o.stderr).contains(
+            "is in the way of the import's staging folder and was not made by cohortpress"
+        ),
+        "{o:?}"
+    );
+    assert_eq!(
+        fs::read_to_string(staging.join("mine.txt")).unwrap(),
+        "my notes\n"
+    );
+    assert!(!program.join("participants/P1").exists());
+    // What a killed import leaves (its marker, a participant folder half written) is removed.
+    fs::remove_dir_all(&staging).unwrap();
+    fs::create_dir_all(staging.join("P1")).unwrap();
+    fs::write(staging.join(".cohortpress-import"), "").unwrap();
+    let o = import();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(program.join("participants/P1/profile.yaml").is_file());
+    assert!(!staging.exists());
+}

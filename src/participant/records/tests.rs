@@ -2423,3 +2423,39 @@ fn a_header_naming_the_clock_form_of_its_durations_tells_their_reading() {
     let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
     assert_eq!(minutes, [12.5, 70.0]);
 }
+
+/// The median of a sorted window without one copy of a value, read off by rank, is the median
+/// of the rest gathered one by one (as the unit check did per weigh-in): odd and even counts,
+/// repeated values, a value not in the window (implausible), one value alone.
+#[test]
+fn median_without_is_the_median_of_the_rest() {
+    let mut seed = 7u64;
+    let mut next = || {
+        seed = seed
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        seed >> 33
+    };
+    for n in 1..40 {
+        let values: Vec<f64> = (0..n).map(|_| 60.0 + (next() % 12) as f64 / 2.0).collect();
+        let mut sorted = values.clone();
+        sorted.sort_unstable_by(f64::total_cmp);
+        for (i, &v) in values.iter().enumerate() {
+            let mut rest: Vec<f64> = values
+                .iter()
+                .enumerate()
+                .filter(|&(j, _)| j != i)
+                .map(|(_, &x)| x)
+                .collect();
+            let expected = (!rest.is_empty()).then(|| median(&mut rest));
+            assert_eq!(
+                median_without(&sorted, v),
+                expected,
+                "{values:?} without {v}"
+            );
+        }
+        // A value outside the window (an implausible one) leaves every value in.
+        let mut all = values.clone();
+        assert_eq!(median_without(&sorted, 5000.0), Some(median(&mut all)));
+    }
+}
