@@ -691,8 +691,6 @@ impl RawWeight {
 /// Pounds in a stone (exactly 14; Weights and Measures Act 1985, Schedule 1).
 const LB_PER_STONE: f64 = 14.0;
 
-/// The median of a non-empty slice (reorders it): the middle order statistic, or the mean of
-/// the two middle ones, found by selection rather than a full sort.
 /// The median of the sorted (`f64::total_cmp`) values `sorted` without one copy of `v` when
 /// it is among them (as [`median`] of the rest gives it); `None` when nothing is left.
 fn median_without(sorted: &[f64], v: f64) -> Option<f64> {
@@ -715,6 +713,8 @@ fn median_without(sorted: &[f64], v: f64) -> Option<f64> {
     })
 }
 
+/// The median of a non-empty slice (reorders it): the middle order statistic, or the mean of
+/// the two middle ones, found by selection rather than a full sort.
 fn median(v: &mut [f64]) -> f64 {
     let n = v.len();
     let (below, &mut upper, _) = v.select_nth_unstable_by(n / 2, f64::total_cmp);
