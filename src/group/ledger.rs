@@ -354,7 +354,13 @@ impl Ledger {
     /// it.
     pub fn open(dir: &Path) -> std::io::Result<Ledger> {
         Self::own_folder(dir)?;
-        std::fs::create_dir_all(dir).map_err(|e| io_err(dir, e))?;
+        // Owner-only, as the output folders are by default: the ledger holds the exact counts
+        // behind every published figure (it was made 0755 from the umask).
+        let mut folder = std::fs::DirBuilder::new();
+        folder.recursive(true);
+        #[cfg(unix)]
+        std::os::unix::fs::DirBuilderExt::mode(&mut folder, 0o700);
+        folder.create(dir).map_err(|e| io_err(dir, e))?;
         // Again now that it exists (another run may have made it, or put files in it, since).
         Self::own_folder(dir)?;
         let lock_path = dir.join(LOCK_FILE);

@@ -308,6 +308,20 @@ fn outputs_are_owner_only_unless_group_readable() {
     assert_eq!(mode(&Path::new(&o).join("participants")), 0o700);
     assert_eq!(mode(&Path::new(&o).join("participants/SG-001.html")), 0o600);
     assert_eq!(mode(&Path::new(&o).join("manifest.json")), 0o600);
+    // The group-report ledger's folder too (it was 0755 from the umask): it holds the exact
+    // counts behind every published figure.
+    let st = t.dir.join("state-private");
+    let o2 = out(&t, "private2");
+    assert_eq!(
+        run(
+            &t,
+            &o2,
+            &["--formats", "html", "--state", st.to_str().unwrap()]
+        )
+        .code,
+        0
+    );
+    assert_eq!(mode(&st), 0o700);
     let g = out(&t, "shared");
     assert_eq!(
         run(&t, &g, &["--formats", "html", "--group-readable"]).code,
