@@ -3068,6 +3068,17 @@ mod tests {
         (t, d)
     }
 
+    /// `text` is refused because its first line, read as the header, lacks the columns.
+    fn refused_for_missing_columns(text: &str) {
+        let (t, d) = read(text, &CsvOptions::default());
+        assert!(t.is_none(), "{text}");
+        assert!(
+            d[0].message.contains("missing required columns"),
+            "{}",
+            d[0]
+        );
+    }
+
     #[test]
     fn columns_in_any_order_with_bom_and_crlf() {
         let (t, d) = read(
@@ -3346,22 +3357,10 @@ mod tests {
             "a,b,c\nDate,Weight,Unit\n2026-05-01,72.5,kg\n",
             "Date,x\nDate,Weight,Unit\n2026-05-01,72.5,kg\n",
         ] {
-            let (t, d) = read(text, &CsvOptions::default());
-            assert!(t.is_none(), "{text}");
-            assert!(
-                d[0].message.contains("missing required columns"),
-                "{}",
-                d[0]
-            );
+            refused_for_missing_columns(text);
         }
         // A one-column first line above data is no title: the header is missing, as before.
-        let (t, d) = read("weight\n2026-05-01,72.5,kg\n", &CsvOptions::default());
-        assert!(t.is_none());
-        assert!(
-            d[0].message.contains("missing required columns"),
-            "{}",
-            d[0]
-        );
+        refused_for_missing_columns("weight\n2026-05-01,72.5,kg\n");
     }
 
     #[test]
@@ -3399,26 +3398,14 @@ mod tests {
         let t = read_table(&ten, &SPEC, &CsvOptions::default(), &ctx, &mut d).unwrap();
         assert_eq!((t.header_line, t.rows.len()), (11, 1));
         let eleven = format!("{}Date,Weight,Unit\n2026-05-01,72.5,kg\n", lines(11));
-        let (t, d) = read(&eleven, &CsvOptions::default());
-        assert!(t.is_none());
-        assert!(
-            d[0].message.contains("missing required columns"),
-            "{}",
-            d[0]
-        );
+        refused_for_missing_columns(&eleven);
         // A line above that names a column, or holds a quote, ends the search: the first line
         // is the header, as before.
         for text in [
             "Summary\nWeight,Unit\nDate,Weight,Unit\n2026-05-01,72.5,kg\n",
             "Report for \"P1\"\nDate,Weight,Unit\n2026-05-01,72.5,kg\n",
         ] {
-            let (t, d) = read(text, &CsvOptions::default());
-            assert!(t.is_none(), "{text}");
-            assert!(
-                d[0].message.contains("missing required columns"),
-                "{}",
-                d[0]
-            );
+            refused_for_missing_columns(text);
         }
     }
 
