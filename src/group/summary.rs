@@ -564,6 +564,34 @@ impl Kind {
         }
     }
 
+    /// The count of the people this count is a share of, in the same section: a 0 here is
+    /// hidden when that count is hidden as small (`CellTable::set_group`). "0 not on a
+    /// plateau" beside a hidden "with a plateau verdict" of 10 told the sponsor that every one
+    /// of those 10 people was on a plateau. A section's number started is at least min, so
+    /// today only the plateau verdicts' group can be small; the rest are set so the rule holds
+    /// wherever a group is.
+    fn group(self) -> Option<Kind> {
+        match self {
+            Kind::Enrolled => None,
+            Kind::Active
+            | Kind::Withdrawn
+            | Kind::Started
+            | Kind::NotStarted
+            | Kind::AdherenceN(_)
+            | Kind::PlateauWithVerdict
+            | Kind::PlateauInsufficient
+            | Kind::Flagged => Some(Kind::Enrolled),
+            Kind::WithOutcome
+            | Kind::WithoutOutcome
+            | Kind::Retained
+            | Kind::Discontinued
+            | Kind::Reached(_)
+            | Kind::NotReached(_)
+            | Kind::Bin(_) => Some(Kind::Started),
+            Kind::PlateauYes | Kind::PlateauNo => Some(Kind::PlateauWithVerdict),
+        }
+    }
+
     /// Complement choice rank: lower is hidden first, so that the denominators of the
     /// analyses (started, with outcome) survive whenever another cell can protect instead.
     fn priority(self) -> u8 {
@@ -1005,6 +1033,11 @@ pub(super) fn build(
             }
             for (t, parts) in section_relations() {
                 table.add_relation(d.cells[&t], parts.iter().map(|p| d.cells[p]).collect());
+            }
+            for &k in &kinds {
+                if let Some(g) = k.group() {
+                    table.set_group(d.cells[&k], d.cells[&g]);
+                }
             }
         }
     };
