@@ -242,7 +242,8 @@ impl Methods {
                 "{c:.0} % interval for a share: Wilson score interval (Wilson 1927)."
             ),
             suppression: format!(
-                "No count from 1 to {} is shown; 0 is shown. Further cells are hidden so that \
+                "No count from 1 to {} is shown; 0 is shown, except among a group whose own count \
+                 is hidden. Further cells are hidden so that \
                  no hidden count can be worked out from the shown ones, and a share, mean or \
                  interval is hidden when a count it rests on is hidden. In the weekly \
                  trajectory, n is exact while everyone who started is still weighing in; after \
