@@ -245,7 +245,8 @@ impl Methods {
                 "{c:.0} % interval for a share: Wilson score interval (Wilson 1927)."
             ),
             suppression: format!(
-                "No count from 1 to {} is shown; 0 is shown. Further cells are hidden so that \
+                "No count from 1 to {} is shown; 0 is shown, except among a group whose own count \
+                 is hidden. Further cells are hidden so that \
                  no hidden count can be worked out from the shown ones, and a share, mean or \
                  interval is hidden when a count it rests on is hidden. In the weekly \
                  trajectory, n is exact while everyone who started is still weighing in; after \
@@ -564,6 +565,34 @@ impl Kind {
                 .unwrap_or("an adherence measure")
             ),
             _ => self.name(),
+        }
+    }
+
+    /// The count of the people this count is a share of, in the same section: a 0 here is
+    /// hidden when that count is hidden as small (`CellTable::set_group`). "0 not on a
+    /// plateau" beside a hidden "with a plateau verdict" of 10 told the sponsor that every one
+    /// of those 10 people was on a plateau. A section's number started is at least min, so
+    /// today only the plateau verdicts' group can be small; the rest are set so the rule holds
+    /// wherever a group is.
+    fn group(self) -> Option<Kind> {
+        match self {
+            Kind::Enrolled => None,
+            Kind::Active
+            | Kind::Withdrawn
+            | Kind::Started
+            | Kind::NotStarted
+            | Kind::AdherenceN(_)
+            | Kind::PlateauWithVerdict
+            | Kind::PlateauInsufficient
+            | Kind::Flagged => Some(Kind::Enrolled),
+            Kind::WithOutcome
+            | Kind::WithoutOutcome
+            | Kind::Retained
+            | Kind::Discontinued
+            | Kind::Reached(_)
+            | Kind::NotReached(_)
+            | Kind::Bin(_) => Some(Kind::Started),
+            Kind::PlateauYes | Kind::PlateauNo => Some(Kind::PlateauWithVerdict),
         }
     }
 
@@ -1008,6 +1037,11 @@ pub(super) fn build(
             }
             for (t, parts) in section_relations() {
                 table.add_relation(d.cells[&t], parts.iter().map(|p| d.cells[p]).collect());
+            }
+            for &k in &kinds {
+                if let Some(g) = k.group() {
+                    table.set_group(d.cells[&k], d.cells[&g]);
+                }
             }
         }
     };

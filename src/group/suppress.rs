@@ -7,23 +7,30 @@
 //! sites' counts; …). The policy follows the CMS Cell Size Suppression Policy (Centers for
 //! Medicare & Medicaid Services, 2017 version):
 //! no count from 1 to `min_cell_size − 1` is shown, 0 may be shown, and no hidden count may be
-//! derivable from the shown ones.
+//! derivable from the shown ones. One narrowing of "0 may be shown" (project rule): a 0 counted
+//! among a group whose own size is hidden as small ([`CellTable::set_group`]: "0 not on a
+//! plateau" of the 1 … min − 1 with a plateau verdict) is hidden too, since it says the same of
+//! every one of those few people (attribute disclosure by homogeneity); a 0 among a group of
+//! min or more stays shown.
 //!
 //! The algorithm ([`CellTable::apply`]):
-//! 1. *Primary suppression*: hide every cell with `1 ≤ value < min_cell_size`.
+//! 1. *Primary suppression*: hide every cell with `1 ≤ value < min_cell_size`, and every 0
+//!    whose group is such a cell (a *guarded zero*).
 //! 2. *Complementary suppression*: in every relation with exactly one hidden member, hide one
 //!    more member, repeated until no relation has exactly one hidden member.
 //! 3. *Linear check*: a hidden cell can also be recovered by combining several relations (the
 //!    program total from one split, then a site count by subtracting the others). The hidden
-//!    cells are treated as unknowns of the linear system formed by all relations; a hidden cell
-//!    whose value the system determines (Gaussian elimination, reduced row echelon form) gets
-//!    one more complement, and steps 2–3 repeat. Each round hides at least one more cell, so
+//!    cells are treated as unknowns of the linear system formed by all relations; a hidden
+//!    non-zero cell or guarded zero whose value the system determines (Gaussian elimination,
+//!    reduced row echelon form) gets one more complement, and steps 2–3 repeat. Each round hides at least one more cell, so
 //!    the loop ends.
 //!
 //! The complement is the shown member with the lowest *priority* (callers rank cells so that
 //! key denominators such as "started" survive), then the smallest value ("next-smallest cell",
 //! the usual complementary-suppression rule; common practice), preferring non-zero cells (a
-//! hidden zero protects little).
+//! hidden zero protects little). A shown 0 is taken only where no non-zero cell is left to
+//! take: a guarded zero found from shown zeros alone (its program's count 0, every other
+//! section's 0) can only be covered by one of them.
 
 /// Handle to one cell of a [`CellTable`].
 pub type CellId = usize;
@@ -43,6 +50,8 @@ struct Cell {
     /// [`CellTable::set_band`]): the reader knows the count lies in it, so the range programs
     /// do too.
     band: Option<(u64, u64)>,
+    /// The cell counting the people this cell counts a share of (see [`CellTable::set_group`]).
+    group: Option<CellId>,
 }
 
 /// One additive relation `total = Σ parts` between cells.
@@ -90,6 +99,9 @@ pub struct CellTable {
     /// search of [`CellTable::apply_with_ranges`] for a result that shows a headline count the
     /// greedy choices hid.
     keep: Vec<bool>,
+    /// Per cell, whether the relations alone determine it (every cell hidden), computed when
+    /// first needed by [`CellTable::guarded_zeros`]; reset when a relation is added.
+    fixed: Option<Vec<bool>>,
 }
 
 /// Most work the suppression of one table may take, in multiply-adds as counted by
@@ -126,9 +138,59 @@ impl CellTable {
             unbounded: false,
             phantom: false,
             band: None,
+            group: None,
         });
         self.seen.push((value as f64, value as f64));
         self.cells.len() - 1
+    }
+
+    /// Says that cell `c` counts some of the people cell `group` counts ("on a plateau" among
+    /// those "with a plateau verdict"; "reached 5 % loss" among those "started"). When the
+    /// group's own count is hidden as small (1 … min − 1), a 0 in `c` is hidden too: printed,
+    /// it would tell the sponsor that none of those few people is counted in `c` (a site of 5
+    /// people with "0 reached 5 % loss" says something of each of the 5). Such a *guarded zero*
+    /// is then treated like a hidden non-zero count: it gets complements when the shown cells
+    /// determine it, and its range must leave at least three values. A 0 whose group is 0 or
+    /// at least min stays shown (CMS Cell Size Suppression Policy 2017: 0 may be shown).
+    pub fn set_group(&mut self, c: CellId, group: CellId) {
+        self.cells[c].group = Some(group);
+    }
+
+    /// Whether cell `c` is 0 and its group's count ([`CellTable::set_group`]) is 1 … min − 1:
+    /// such a 0 is hidden.
+    fn zero_in_small_group(&self, c: CellId, min_cell_size: u32) -> bool {
+        let cell = &self.cells[c];
+        cell.value == 0
+            && cell.group.is_some_and(|g| {
+                let group = &self.cells[g];
+                !group.phantom && group.value >= 1 && group.value < u64::from(min_cell_size)
+            })
+    }
+
+    /// Per cell, whether it is a *guarded zero*: a 0 in a small group
+    /// ([`CellTable::zero_in_small_group`]) that the relations alone do not fix. Such a 0 is
+    /// kept unknown like a hidden non-zero count (complements when the shown cells determine
+    /// it, a range of at least three values). A 0 that the relations give whatever is shown —
+    /// "on a plateau" linked as the same people as "with a plateau verdict", so "not on a
+    /// plateau" is their difference — is hidden but needs no complement: no printed figure
+    /// tells it, and no cell hidden could untell it (its range is not printed either, see
+    /// [`CellTable::ranges`]).
+    fn guarded_zeros(&mut self, min_cell_size: u32) -> Vec<bool> {
+        let mut out: Vec<bool> = (0..self.cells.len())
+            .map(|c| self.zero_in_small_group(c, min_cell_size))
+            .collect();
+        if out.iter().any(|&g| g) {
+            if self.fixed.is_none() {
+                let n = self.cells.len() as f64;
+                self.spend(self.relations.len() as f64 * n * n);
+                self.fixed = Some(determined(&vec![true; self.cells.len()], &self.relations));
+            }
+            let fixed = self.fixed.as_ref().expect("just computed");
+            for (g, &f) in out.iter_mut().zip(fixed) {
+                *g &= !f;
+            }
+        }
+        out
     }
 
     /// Links two cells whose people are nested (`inner`'s people are all counted in `outer`)
@@ -147,6 +209,7 @@ impl CellTable {
             unbounded: true,
             phantom: true,
             band: None,
+            group: None,
         });
         self.seen.push((value as f64, value as f64));
         let d = self.cells.len() - 1;
@@ -243,6 +306,7 @@ impl CellTable {
             "relation does not add up"
         );
         self.relations.push(Relation { total, parts });
+        self.fixed = None;
     }
 
     /// Number of cells.
@@ -744,10 +808,12 @@ impl CellTable {
         }
     }
 
-    /// The lowest-numbered hidden non-zero cell whose whole-number range has fewer than three
-    /// values (as [`CellTable::ranges`] would give it), if any.
+    /// The lowest-numbered hidden non-zero cell or guarded zero ([`CellTable::set_group`])
+    /// whose whole-number range has fewer than three values (as [`CellTable::ranges`] would
+    /// give it), if any.
     fn first_narrow(&mut self, min_cell_size: u32) -> Option<CellId> {
         use microlp::OptimizationDirection::{Maximize, Minimize};
+        let guarded = self.guarded_zeros(min_cell_size);
         let mut seen = std::mem::take(&mut self.seen);
         let mut first = None;
         for (comp, rels) in self.hidden_components() {
@@ -758,7 +824,7 @@ impl CellTable {
             let mut open: Vec<CellId> = comp
                 .iter()
                 .copied()
-                .filter(|&c| self.cells[c].value != 0 && !proven_wide(seen[c]))
+                .filter(|&c| (self.cells[c].value != 0 || guarded[c]) && !proven_wide(seen[c]))
                 .collect();
             // Push every open cell up, then down, while that proves some of them wide.
             while !open.is_empty() {
@@ -905,7 +971,11 @@ impl CellTable {
                     && hi.is_finite()
                 {
                     let (lo, hi) = whole(lo, hi);
-                    out[c] = Some((lo.min(hi), hi));
+                    // A 0 hidden for its small group is never printed as a range that pins it
+                    // (one the relations alone fix is "0–0").
+                    if !(self.zero_in_small_group(c, min_cell_size) && hi < lo + 2) {
+                        out[c] = Some((lo.min(hi), hi));
+                    }
                 }
             }
         }
@@ -1016,11 +1086,15 @@ impl CellTable {
     /// Runs primary and complementary suppression for the given minimum cell size.
     pub fn apply(&mut self, min_cell_size: u32) {
         let min = u64::from(min_cell_size);
-        for c in &mut self.cells {
-            if c.value >= 1 && c.value < min {
+        let small_group: Vec<bool> = (0..self.cells.len())
+            .map(|c| self.zero_in_small_group(c, min_cell_size))
+            .collect();
+        for (c, &z) in self.cells.iter_mut().zip(&small_group) {
+            if (c.value >= 1 && c.value < min) || z {
                 c.suppressed = true;
             }
         }
+        let guarded = self.guarded_zeros(min_cell_size);
         loop {
             self.single_relation_pass();
             let suppressed: Vec<bool> = self.cells.iter().map(|c| c.suppressed).collect();
@@ -1030,15 +1104,17 @@ impl CellTable {
                 break;
             }
             let det = determined(&suppressed, &self.relations);
-            // A determined zero tells nothing that a shown zero would not.
-            let leak = (0..self.cells.len()).find(|&i| det[i] && self.cells[i].value != 0);
+            // A determined zero tells nothing that a shown zero would not, unless it is a
+            // guarded zero: hidden because its group is small, so it must stay unknown.
+            let leak =
+                (0..self.cells.len()).find(|&i| det[i] && (self.cells[i].value != 0 || guarded[i]));
             let Some(u) = leak else { break };
             self.refresh_costs();
             match self.complement_for(u, &suppressed) {
                 Some(c) => self.cells[c].suppressed = true,
                 None => {
-                    // Unreachable for consistent tables: a determined non-zero cell needs a
-                    // shown non-zero cell somewhere in its relations. Hide everything linked.
+                    // Unreachable for consistent tables: a determined cell needs a shown cell
+                    // somewhere in its relations. Hide everything linked.
                     debug_assert!(false, "no complement found for a determined cell");
                     self.hide_all();
                     break;
@@ -1231,12 +1307,16 @@ impl CellTable {
     }
 
     /// Step 3 complement for a determined cell `u`: searched first in the relations containing
-    /// `u`, then breadth-first in relations reached through other hidden cells.
+    /// `u`, then breadth-first in relations reached through other hidden cells, a shown
+    /// non-zero cell before a shown 0 in each. A shown 0 is taken only for a hidden 0 (a
+    /// guarded zero, [`CellTable::set_group`]: what pins it is a shown 0, as in "program 0 =
+    /// this site + another site's 0"), or when no shown non-zero cell is reached at all.
     pub fn complement_near(&self, u: CellId) -> Option<CellId> {
         let mut seen_cells = vec![false; self.cells.len()];
         let mut seen_rel = vec![false; self.relations.len()];
         let mut frontier = vec![u];
         seen_cells[u] = true;
+        let mut zero = None;
         while !frontier.is_empty() {
             let level: Vec<usize> = (0..self.relations.len())
                 .filter(|&r| {
@@ -1244,15 +1324,19 @@ impl CellTable {
                 })
                 .collect();
             if level.is_empty() {
-                return None;
+                return zero;
             }
             for &r in &level {
                 seen_rel[r] = true;
             }
-            if let Some(c) = self.best_complement(&level)
-                && self.cells[c].value != 0
-            {
-                return Some(c);
+            match self.best_complement(&level) {
+                // A hidden 0 (a guarded zero) is pinned by shown zeros (a sum shown as 0 holds
+                // only zeros): the nearest one is its complement.
+                Some(c) if self.cells[c].value != 0 || self.cells[u].value == 0 => return Some(c),
+                Some(c) => {
+                    zero.get_or_insert(c);
+                }
+                None => {}
             }
             let mut next = Vec::new();
             for &r in &level {
@@ -1265,7 +1349,7 @@ impl CellTable {
             }
             frontier = next;
         }
-        None
+        zero
     }
 }
 
@@ -1462,6 +1546,75 @@ mod tests {
         assert!(t.is_suppressed(parts[0]));
         assert!(!t.is_suppressed(parts[1]), "the zero stays shown");
         assert!(t.is_suppressed(parts[2]) || t.is_suppressed(tot));
+    }
+
+    /// One section's plateau counts: enrolled = with a verdict + too little data, with a
+    /// verdict = on a plateau + not, each share given its group.
+    fn plateau_section(t: &mut CellTable, counts: [u64; 5]) -> [CellId; 5] {
+        let [enrolled, verdict, insufficient, yes, no] = counts.map(|v| t.add_cell(v, 1));
+        t.add_relation(enrolled, vec![verdict, insufficient]);
+        t.add_relation(verdict, vec![yes, no]);
+        for c in [verdict, insufficient] {
+            t.set_group(c, enrolled);
+        }
+        for c in [yes, no] {
+            t.set_group(c, verdict);
+        }
+        [enrolled, verdict, insufficient, yes, no]
+    }
+
+    /// A site of 20 where 4 have a plateau verdict and none of them is on a plateau: "0 on a
+    /// plateau" beside the hidden 4 told the sponsor that each of those 4 was not on one. The
+    /// 0 is hidden, and since the program's 0 and the other site's 0 give it by subtraction
+    /// (program = Σ sites), one of those two shown zeros is hidden as its complement: no
+    /// non-zero cell is left to take. The other site's 0 among its 30 with a verdict is a 0 in
+    /// a group of at least min and needs no hiding of its own.
+    #[test]
+    fn a_zero_among_a_small_group_is_hidden_and_gets_a_complement() {
+        let mut t = CellTable::new();
+        let a = plateau_section(&mut t, [20, 4, 16, 0, 4]);
+        let b = plateau_section(&mut t, [40, 30, 10, 0, 30]);
+        let p = plateau_section(&mut t, [60, 34, 26, 0, 34]);
+        for k in 0..5 {
+            t.add_relation(p[k], vec![a[k], b[k]]);
+        }
+        let mut bare = t.clone();
+        for c in &mut bare.cells {
+            c.group = None;
+        }
+        bare.apply(11);
+        assert!(!bare.is_suppressed(a[3]), "without groups the 0 is shown");
+
+        let ranges = t.apply_with_ranges(11);
+        assert!(t.is_suppressed(a[3]), "the site's 0 on a plateau is hidden");
+        assert!(
+            t.is_suppressed(p[3]) || t.is_suppressed(b[3]),
+            "a shown zero is taken as its complement"
+        );
+        let hidden: Vec<bool> = t.cells.iter().map(|c| c.suppressed).collect();
+        assert!(!determined(&hidden, &t.relations)[a[3]]);
+        // Its printed range leaves at least three values and holds the truth.
+        let (lo, hi) = ranges[a[3]].expect("a range is printed");
+        assert!(lo == 0 && hi >= 2, "{lo}–{hi}");
+        // Enrolment stays shown.
+        for c in [a[0], b[0], p[0]] {
+            assert!(!t.is_suppressed(c), "cell {c} hidden");
+        }
+    }
+
+    /// A 0 that the relations give whatever is shown (a group linked as the same people as
+    /// one of its shares, so the other share is their difference) is hidden for its small
+    /// group, takes no complement — none could help — and gets no range ("0–0" would print
+    /// it).
+    #[test]
+    fn a_zero_the_relations_alone_fix_is_hidden_without_complements_or_range() {
+        let mut t = CellTable::new();
+        let a = plateau_section(&mut t, [20, 4, 16, 4, 0]);
+        t.add_relation(a[1], vec![a[3]]);
+        let ranges = t.apply_with_ranges(11);
+        assert!(t.is_suppressed(a[4]));
+        assert_eq!(ranges[a[4]], None);
+        assert!(!t.is_suppressed(a[0]), "enrolment stays shown");
     }
 
     #[test]

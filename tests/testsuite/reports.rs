@@ -2509,3 +2509,66 @@ fn the_energy_chart_of_someone_without_a_food_log_names_only_what_it_draws() {
     let caption = "Weekly energy use and implied intake (kcal/day).";
     assert!(html.contains(caption), "no `{caption}`");
 }
+
+/// A 0 counted among a group whose own size is hidden as small says the same of each of those
+/// few people. The sample with 11 people moved to a site of their own, "Clay Annex", 10 of
+/// them with a plateau verdict and none on a plateau: the site's plateau line read "0 of 0–11
+/// with enough data" and `group.json` had `in_plateau` 0 while "with a verdict" (10) was
+/// hidden, so the sponsor learnt that none of those 10 was on a plateau. That 0 is now hidden
+/// (`CellTable::set_group`); the site's enrolment, a 0 in a group of 11, stays shown.
+#[test]
+fn a_zero_among_a_small_group_is_in_neither_the_group_html_nor_group_json() {
+    let t = ProgramTest::sample();
+    for id in [
+        "SG-015", "SG-034", "SG-050", "SG-025", "SG-032", "SG-036", "SG-042", "SG-033", "SG-014",
+        "SG-002", "SG-006",
+    ] {
+        let path = t.dir.join(format!("participants/{id}/profile.yaml"));
+        let text = std::fs::read_to_string(&path).unwrap();
+        let start = text.find("site: ").unwrap() + "site: ".len();
+        let end = start + text[start..].find(',').unwrap();
+        std::fs::write(
+            &path,
+            format!("{}Clay Annex{}", &text[..start], &text[end..]),
+        )
+        .unwrap();
+    }
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--out",
+        "{dir}/../out",
+        "--as-of",
+        "2026-10-01",
+        "-q",
+    ]);
+    // SG-049's missing profile.yaml (a planted defect) leaves one folder out.
+    assert_eq!(o.code, 4, "{o:?}");
+    let out = t.dir.join("../out");
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("metrics/group.json")).unwrap())
+            .unwrap();
+    let site = json["splits"][0]["sections"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["label"] == "Clay Annex")
+        .expect("Clay Annex is a section");
+    let stats = &site["stats"];
+    assert_eq!(stats["enrolment"]["enrolled"]["value"], 11);
+    let plateau = &stats["plateau"];
+    assert_eq!(plateau["with_verdict"]["suppressed"], true, "{plateau}");
+    for f in ["in_plateau", "not_in_plateau"] {
+        assert_eq!(plateau[f]["suppressed"], true, "{f}: {plateau}");
+        assert!(plateau[f].get("value").is_none(), "{f}: {plateau}");
+    }
+    let html = std::fs::read_to_string(out.join("group/program.html")).unwrap();
+    let section = &html[html
+        .find("<h2 id=\"h-site-0\">Site: Clay Annex</h2>")
+        .unwrap()..];
+    let section = &section[..section.find("</section>").unwrap()];
+    let cell = "<td>On a plateau at the end of the period (count)</td><td>";
+    let line = &section[section.find(cell).unwrap() + cell.len()..];
+    let line = &line[..line.find("</td>").unwrap()];
+    assert!(!line.starts_with('0'), "plateau line: {line}");
+}
