@@ -1770,8 +1770,8 @@ fn known_week_n(s: &WeekSection, w: usize, unprinted: bool, min: u64) -> (u64, u
 
 /// Links every pair of counts of the release whose people are nested and whose difference is
 /// 1 … min − 1 (found from who is counted, not from the figures' names: "enrolled" and "with
-/// activity data", "started" and "with a plateau verdict", a site's count and the program's)
-/// by the relation `outer = inner + difference`, so that the suppression and the range audit
+/// activity data", "started" and "with a plateau verdict", a team's count and that of the one
+/// site all its people are at) by the relation `outer = inner + difference`, so that the suppression and the range audit
 /// protect the difference like any printed count. The difference is an existing cell when one
 /// counts exactly those people, else a hidden cell that is never printed
 /// ([`CellTable::add_difference`]). Pairs whose relation the table already has are skipped.
@@ -1822,9 +1822,15 @@ fn link_nested_counts<'a>(
         .collect();
     let min = u64::from(min);
     for (sa, a, abits, an) in &cells {
-        // Within a section: a site's count against the program's differs by the other
-        // sites' people, which the program = Σ sites relations already protect.
-        for (_, b, bbits, bn) in cells.iter().filter(|c| c.0 == *sa) {
+        // Within a section, and between sections of two splits (a team all of whose people
+        // are at one site: the site's 23 enrolled beside the team's 18 gave the site's other
+        // 5 exactly). Not against the program's section: a site's count there differs by the
+        // other sites' people, which the program = Σ sites relations already protect. (Two
+        // sections of one split hold different people, so none of theirs is nested.)
+        for (_, b, bbits, bn) in cells
+            .iter()
+            .filter(|c| c.0 == *sa || (c.0 != 0 && *sa != 0))
+        {
             let Some(d) = an.checked_sub(*bn) else {
                 continue;
             };

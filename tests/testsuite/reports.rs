@@ -2572,3 +2572,66 @@ fn a_zero_among_a_small_group_is_in_neither_the_group_html_nor_group_json() {
     let line = &line[..line.find("</td>").unwrap()];
     assert!(!line.starts_with('0'), "plateau line: {line}");
 }
+
+/// Two splits whose groups nest (every Glazing team member works at Kiln Row): the site's
+/// enrolled (23) and the team's (18) were both printed, giving Kiln Row's other 5 people
+/// exactly by subtraction; the counts were linked across sections only when they held exactly
+/// the same people.
+#[test]
+fn a_team_inside_one_site_does_not_give_the_sites_other_people_by_subtraction() {
+    let t = ProgramTest::sample();
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    assert!(text.contains("  group_by: [site]"));
+    std::fs::write(
+        &yaml,
+        text.replace("  group_by: [site]", "  group_by: [site, team]"),
+    )
+    .unwrap();
+    for e in std::fs::read_dir(t.dir.join("participants")).unwrap() {
+        let path = e.unwrap().path().join("profile.yaml");
+        let Ok(text) = std::fs::read_to_string(&path) else {
+            continue;
+        };
+        let moved = text.replace(
+            "site: Kiln Row, team: Design",
+            "site: Kiln Row, team: Glazing",
+        );
+        std::fs::write(&path, moved).unwrap();
+    }
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--out",
+        "{dir}/../out",
+        "--as-of",
+        "2026-10-01",
+        "--formats",
+        "html",
+        "-q",
+    ]);
+    assert_eq!(o.code, 4, "{o:?}");
+    let json: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(t.dir.join("../out/metrics/group.json")).unwrap(),
+    )
+    .unwrap();
+    let enrolled = |label: &str| -> Option<u64> {
+        json["splits"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .flat_map(|s| s["sections"].as_array().unwrap())
+            .find(|s| s["label"] == label)
+            .unwrap_or_else(|| panic!("{label} is a section"))["stats"]["enrolment"]["enrolled"]
+            ["value"]
+            .as_u64()
+    };
+    // Kiln Row's 23 are Glazing's 18 and 5 from Maintenance.
+    let (site, team) = (enrolled("Kiln Row"), enrolled("Glazing"));
+    if let (Some(a), Some(b)) = (site, team) {
+        panic!(
+            "Kiln Row {a} and Glazing {b} both printed: {} by subtraction",
+            a - b
+        );
+    }
+}
