@@ -505,14 +505,6 @@ pub fn value_from_str(text: &str, file: &str) -> Result<serde_yaml::Value, Diagn
 /// The YAML value type, re-exported so callers need not name the crate.
 pub type Value = serde_yaml::Value;
 
-/// Whether serde's `expected` names one of Rust's number types.
-fn is_number_type(exp: &str) -> bool {
-    matches!(
-        exp,
-        "f32" | "f64" | "u8" | "u16" | "u32" | "u64" | "usize" | "i8" | "i16" | "i32" | "i64"
-    )
-}
-
 /// A value of the wrong kind, in the words of the file's writer: serde names Rust's types and
 /// its own terms (`expected f64`, `expected u32`, `found: integer `…` as u128`, `expected a
 /// YAML tag starting with '!'` for `sex: [female]`), which told a program's staff nothing (and
@@ -631,7 +623,10 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
                 let mut hint = "quote text that YAML would read as a number or date, and check the value's kind";
                 if let Some((found, exp)) = found_exp {
                     d = in_plain_words(d, found, exp);
-                    if found.starts_with("string ") && is_number_type(exp) {
+                    // A number expected (in plain words, as `in_plain_words` put it), text found.
+                    if found.starts_with("string ")
+                        && d.expected.as_deref().is_some_and(|e| e.contains("number"))
+                    {
                         hint = "write the number alone, without a unit or words (e.g. `45`)";
                     }
                 }

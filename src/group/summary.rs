@@ -1771,8 +1771,8 @@ fn known_week_n(s: &WeekSection, w: usize, unprinted: bool, min: u64) -> (u64, u
 /// Links every pair of counts of the release whose people are nested and whose difference is
 /// 1 … min − 1 (found from who is counted, not from the figures' names: "enrolled" and "with
 /// activity data", "started" and "with a plateau verdict", a team's count and that of the one
-/// site all its people are at) by the relation `outer = inner + difference`, so that the suppression and the range audit
-/// protect the difference like any printed count. The difference is an existing cell when one
+/// site all its people are at) by the relation `outer = inner + difference`, so that the
+/// suppression and the range audit protect the difference like any printed count. The difference is an existing cell when one
 /// counts exactly those people, else a hidden cell that is never printed
 /// ([`CellTable::add_difference`]). Pairs whose relation the table already has are skipped.
 ///

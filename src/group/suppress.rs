@@ -22,8 +22,8 @@
 //!    program total from one split, then a site count by subtracting the others). The hidden
 //!    cells are treated as unknowns of the linear system formed by all relations; a hidden
 //!    non-zero cell or guarded zero whose value the system determines (Gaussian elimination,
-//!    reduced row echelon form) gets one more complement, and steps 2–3 repeat. Each round hides at least one more cell, so
-//!    the loop ends.
+//!    reduced row echelon form) gets one more complement, and steps 2–3 repeat. Each round
+//!    hides at least one more cell, so the loop ends.
 //!
 //! The complement is the shown member with the lowest *priority* (callers rank cells so that
 //! key denominators such as "started" survive), then the smallest value ("next-smallest cell",
