@@ -32,8 +32,8 @@ use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 pub use crate::participant::loinc::{
-    BODY_HEIGHT, BODY_WEIGHT, BP_PANEL, DIASTOLIC, FASTING_GLUCOSE_MASS, FASTING_GLUCOSE_MOLES,
-    HBA1C, HBA1C_IFCC, LOINC, SYSTOLIC, WAIST,
+    BODY_HEIGHT, BODY_WEIGHT, BODY_WEIGHT_MEASURED, BP_PANEL, DIASTOLIC, FASTING_GLUCOSE_MASS,
+    FASTING_GLUCOSE_MOLES, HBA1C, HBA1C_IFCC, LOINC, SYSTOLIC, WAIST,
 };
 
 /// What was read for one patient.
@@ -47,16 +47,38 @@ pub struct PatientData {
     /// date (`unknown`; a year or year and month, which FHIR allows): said in the profile's
     /// comment, so the person filling it in knows what the record holds.
     pub unusable: (Option<String>, Option<String>),
-    /// Weigh-ins: (date, time HH:MM, value, `kg` | `lb`, source from `Observation.method`).
-    #[allow(
-        clippy::type_complexity,
-        reason = "one plain tuple per weigh-in, documented above"
-    )]
-    pub weights: Vec<(NaiveDate, Option<String>, f64, &'static str, Option<String>)>,
-    /// Heights: (date, value, `cm` | `in`).
+    /// Weigh-ins: (when, value, `kg` | `lb`, source from `Observation.method`).
+    pub weights: Vec<(Taken, f64, &'static str, Option<String>)>,
+    /// Heights: (local day, value, `cm` | `in`).
     pub heights: Vec<(NaiveDate, f64, &'static str)>,
-    /// Lab rows: (date, test, value, unit as our labs.csv writes it).
-    pub labs: Vec<(NaiveDate, &'static str, f64, &'static str)>,
+    /// Lab rows: (when, test, value, unit as our labs.csv writes it).
+    pub labs: Vec<(Taken, &'static str, f64, &'static str)>,
+}
+
+/// When an Observation was made, as the participant's CSV files say it.
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord)]
+pub struct Taken {
+    /// The local day: the day as written, or for a time stamped in UTC its day in the
+    /// program's `input.time_zone` (its UTC day when the program sets none).
+    pub date: NaiveDate,
+    /// The local time, `HH:MM`, when one is given.
+    pub time: Option<String>,
+    /// The timestamp as the resource wrote it, when it is stamped in UTC (`Z`, `+00:00`).
+    /// It goes into the CSV whole, so that a run finds its local day with the program's
+    /// `input.time_zone` as it does for any UTC time in a CSV export (README, "dates"); written
+    /// as a bare day and clock time it would have been read as local, and an evening weigh-in
+    /// west of Greenwich would have counted on the next day.
+    pub utc_stamp: Option<String>,
+}
+
+impl Taken {
+    /// The `date` and `time` cells of a CSV row.
+    fn cells(&self) -> (String, String) {
+        match &self.utc_stamp {
+            Some(stamp) => (stamp.clone(), String::new()),
+            None => (self.date.to_string(), self.time.clone().unwrap_or_default()),
+        }
+    }
 }
 
 /// The outcome of reading resources.
@@ -70,6 +92,11 @@ pub struct Imported {
     pub observations: usize,
     /// Observations skipped (other codes, not final, unusable).
     pub skipped: usize,
+    /// The program's `input.time_zone`, when its program.yaml sets one: the local day of a
+    /// time stamped in UTC.
+    pub zone: Option<crate::program::files::LocalZone>,
+    /// Weigh-ins and lab results read whose time is stamped in UTC.
+    pub utc_stamped: usize,
 }
 
 fn codes(concept: &Value) -> Vec<&str> {
@@ -82,16 +109,24 @@ fn codes(concept: &Value) -> Vec<&str> {
         .collect()
 }
 
-/// The local day and time of an Observation: `effectiveDateTime`, `effectiveInstant` or
-/// `effectivePeriod.start`, read as our CSV dates are (the day as written).
-fn effective(obs: &Value) -> Option<(NaiveDate, Option<String>)> {
+/// When an Observation was made: `effectiveDateTime`, `effectiveInstant` or
+/// `effectivePeriod.start`, read as our CSV dates are (a time with an offset other than UTC on
+/// the day as written; a UTC time on its day in `zone`, see [`Taken::utc_stamp`]).
+fn effective(obs: &Value, zone: Option<crate::program::files::LocalZone>) -> Option<Taken> {
     let s = obs["effectiveDateTime"]
         .as_str()
         .or_else(|| obs["effectiveInstant"].as_str())
         .or_else(|| obs["effectivePeriod"]["start"].as_str())?;
-    let opts = crate::participant::table::CsvOptions::default();
+    let opts = crate::participant::table::CsvOptions {
+        time_zone: zone,
+        ..Default::default()
+    };
     let w = crate::participant::table::parse_when(s, &opts)?;
-    Some((w.date, w.time.map(|t| t.format("%H:%M").to_string())))
+    Some(Taken {
+        date: w.date,
+        time: w.time.map(|t| t.format("%H:%M").to_string()),
+        utc_stamp: w.from_utc.then(|| s.trim().to_string()),
+    })
 }
 
 /// The weigh-in source an Observation states in `method` (see the module documentation).
@@ -206,6 +241,7 @@ impl Imported {
         let cs = codes(&obs["code"]);
         let known = [
             BODY_WEIGHT,
+            BODY_WEIGHT_MEASURED,
             BODY_HEIGHT,
             WAIST,
             BP_PANEL,
@@ -220,7 +256,7 @@ impl Imported {
             self.skipped += 1;
             return;
         };
-        let (Some(patient), Some((date, time))) = (subject(obs, urls), effective(obs)) else {
+        let (Some(patient), Some(when)) = (subject(obs, urls), effective(obs, self.zone)) else {
             self.problems.push(format!(
                 "{origin}: Observation {id} has no Patient subject or no readable effective date; it is skipped"
             ));
@@ -251,42 +287,59 @@ impl Imported {
         };
         let source = method(obs);
         match code {
-            BODY_WEIGHT => match q {
-                Some((v, "kg")) => self
-                    .patient(&patient)
-                    .weights
-                    .push((date, time, v, "kg", source)),
+            BODY_WEIGHT | BODY_WEIGHT_MEASURED => match q {
+                Some((v, "kg")) => {
+                    self.patient(&patient)
+                        .weights
+                        .push((when.clone(), v, "kg", source))
+                }
                 Some((v, "g")) => {
                     self.patient(&patient)
                         .weights
-                        .push((date, time, v / 1000.0, "kg", source))
+                        .push((when.clone(), v / 1000.0, "kg", source))
                 }
-                Some((v, "[lb_av]")) => self
-                    .patient(&patient)
-                    .weights
-                    .push((date, time, v, "lb", source)),
+                Some((v, "[lb_av]")) => {
+                    self.patient(&patient)
+                        .weights
+                        .push((when.clone(), v, "lb", source))
+                }
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
             },
             BODY_HEIGHT => match q {
-                Some((v, "cm")) => self.patient(&patient).heights.push((date, v, "cm")),
-                Some((v, "m")) => self.patient(&patient).heights.push((date, v * 100.0, "cm")),
-                Some((v, "[in_i]")) => self.patient(&patient).heights.push((date, v, "in")),
+                Some((v, "cm")) => self.patient(&patient).heights.push((when.date, v, "cm")),
+                Some((v, "m")) => self
+                    .patient(&patient)
+                    .heights
+                    .push((when.date, v * 100.0, "cm")),
+                Some((v, "[in_i]")) => self.patient(&patient).heights.push((when.date, v, "in")),
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
             },
             WAIST => match q {
-                Some((v, "cm")) => self.patient(&patient).labs.push((date, "waist", v, "cm")),
-                Some((v, "[in_i]")) => self.patient(&patient).labs.push((date, "waist", v, "in")),
+                Some((v, "cm")) => {
+                    self.patient(&patient)
+                        .labs
+                        .push((when.clone(), "waist", v, "cm"))
+                }
+                Some((v, "[in_i]")) => {
+                    self.patient(&patient)
+                        .labs
+                        .push((when.clone(), "waist", v, "in"))
+                }
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
             },
             HBA1C | HBA1C_IFCC => match q {
-                Some((v, "%")) => self.patient(&patient).labs.push((date, "hba1c", v, "%")),
-                Some((v, "mmol/mol")) => self
+                Some((v, "%")) => self
                     .patient(&patient)
                     .labs
-                    .push((date, "hba1c", v, "mmol/mol")),
+                    .push((when.clone(), "hba1c", v, "%")),
+                Some((v, "mmol/mol")) => {
+                    self.patient(&patient)
+                        .labs
+                        .push((when.clone(), "hba1c", v, "mmol/mol"))
+                }
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
             },
@@ -294,12 +347,12 @@ impl Imported {
                 Some((v, "mg/dL")) => {
                     self.patient(&patient)
                         .labs
-                        .push((date, "fasting_glucose", v, "mg/dL"))
+                        .push((when.clone(), "fasting_glucose", v, "mg/dL"))
                 }
                 Some((v, "mmol/L")) => {
                     self.patient(&patient)
                         .labs
-                        .push((date, "fasting_glucose", v, "mmol/L"))
+                        .push((when.clone(), "fasting_glucose", v, "mmol/L"))
                 }
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
@@ -311,7 +364,9 @@ impl Imported {
                     } else {
                         "diastolic_bp"
                     };
-                    self.patient(&patient).labs.push((date, test, v, "mmHg"))
+                    self.patient(&patient)
+                        .labs
+                        .push((when.clone(), test, v, "mmHg"))
                 }
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
@@ -329,7 +384,9 @@ impl Imported {
                     };
                     match quantity(&c["valueQuantity"]) {
                         Some((v, "mm[Hg]" | "mmHg")) => {
-                            self.patient(&patient).labs.push((date, test, v, "mmHg"));
+                            self.patient(&patient)
+                                .labs
+                                .push((when.clone(), test, v, "mmHg"));
                             found += 1;
                         }
                         Some((_, u)) => bad_unit(self, u),
@@ -347,6 +404,10 @@ impl Imported {
             _ => unreachable!("only known codes reach here"),
         }
         self.observations += 1;
+        // A height's day goes only into `enrolled`; weigh-ins and labs keep the stamp.
+        if when.utc_stamp.is_some() && code != BODY_HEIGHT {
+            self.utc_stamped += 1;
+        }
     }
 
     /// Reads a file: a JSON resource (a Bundle or one resource), or NDJSON (one per line).
@@ -464,8 +525,8 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
     let first = p
         .weights
         .iter()
-        .map(|w| w.0)
-        .chain(p.labs.iter().map(|l| l.0))
+        .map(|w| w.0.date)
+        .chain(p.labs.iter().map(|l| l.0.date))
         .chain(p.heights.iter().map(|h| h.0))
         .min();
     let mut profile = format!(
@@ -504,25 +565,20 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
     files.push(("profile.yaml", profile));
     if !p.weights.is_empty() {
         let mut w = p.weights.clone();
-        w.sort_by(|a, b| (a.0, &a.1).cmp(&(b.0, &b.1)));
+        w.sort_by(|a, b| a.0.cmp(&b.0));
         let mut t = String::from("date,time,weight,unit,source\n");
-        for (d, time, v, u, source) in w {
-            writeln!(
-                t,
-                "{d},{},{v},{u},{}",
-                time.unwrap_or_default(),
-                source.unwrap_or_default()
-            )
-            .expect("string");
+        for (when, v, u, source) in w {
+            let (d, time) = when.cells();
+            writeln!(t, "{d},{time},{v},{u},{}", source.unwrap_or_default()).expect("string");
         }
         files.push(("weights.csv", t));
     }
     if !p.labs.is_empty() {
         let mut l = p.labs.clone();
-        l.sort_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+        l.sort_by(|a, b| (a.0.date, a.1, &a.0).cmp(&(b.0.date, b.1, &b.0)));
         let mut t = String::from("date,test,value,unit\n");
-        for (d, test, v, u) in l {
-            writeln!(t, "{d},{test},{v},{u}").expect("string");
+        for (when, test, v, u) in l {
+            writeln!(t, "{},{test},{v},{u}", when.cells().0).expect("string");
         }
         files.push(("labs.csv", t));
     }
@@ -553,6 +609,18 @@ pub fn import(
     let usage = |m: String| (ImportFailure::Usage, m);
     let map = ids.map(read_id_map).transpose().map_err(usage)?;
     let mut imp = Imported::default();
+    // The local day of a time stamped in UTC is the program's to say (`input.time_zone`); a
+    // program.yaml that cannot be read yet gives none, and the summary says so.
+    let zone_read = !out.join("program.yaml").exists()
+        || crate::program::load::load_program(out).is_ok_and(|p| {
+            imp.zone = p
+                .def
+                .input
+                .time_zone
+                .as_deref()
+                .and_then(crate::program::files::LocalZone::parse);
+            true
+        });
     for f in files {
         imp.read_file(f).map_err(usage)?;
     }
@@ -726,6 +794,36 @@ pub fn import(
     for p in &imp.problems {
         write!(s, "\nskipped: {p}").expect("string");
     }
+    if imp.utc_stamped > 0 {
+        let n = imp.utc_stamped;
+        match imp.zone {
+            Some(z) => write!(
+                s,
+                "\n{n} observation{} stamped in UTC: weights.csv and labs.csv keep {} as written, \
+                 and a run counts {} on {} day in {} (`input.time_zone`), as `enrolled` does",
+                if n == 1 { " is" } else { "s are" },
+                if n == 1 { "its time" } else { "their times" },
+                if n == 1 { "it" } else { "them" },
+                if n == 1 { "its" } else { "their" },
+                z.name()
+            ),
+            None => write!(
+                s,
+                "\n{n} observation{} stamped in UTC, and {}: weights.csv and labs.csv keep the \
+                 times as written, and a run counts them on their UTC day until \
+                 `input.time_zone` is set (then check `enrolled`, the UTC day of the first \
+                 observation)",
+                if n == 1 { " is" } else { "s are" },
+                if zone_read {
+                    "the program sets no `input.time_zone`"
+                } else {
+                    "the program's time zone could not be read (its program.yaml has errors: \
+                     run `cohortpress check`)"
+                }
+            ),
+        }
+        .expect("string");
+    }
     if !out.join("program.yaml").exists() {
         s.push_str("\nthe folder has no program.yaml yet: write one (see the README) before `check` or `run`");
     }
@@ -816,6 +914,58 @@ mod tests {
             get("labs.csv"),
             "date,test,value,unit\n2027-03-02,diastolic_bp,82,mmHg\n2027-03-02,fasting_glucose,101,mg/dL\n2027-03-02,hba1c,5.9,%\n2027-03-02,systolic_bp,128,mmHg\n2027-03-02,waist,36.5,in\n"
         );
+    }
+
+    /// A time stamped in UTC counts on its local day in the program's zone: a weigh-in at
+    /// 02:30Z is 22:30 the evening before in New York. The CSV keeps the stamp whole, so a run
+    /// converts it as it does a CSV export's UTC times; written as `2026-04-02,02:30` it was
+    /// read as a local time, on the wrong day, and `enrolled` was a day after the first
+    /// weigh-in. A weight coded 3141-9 (Body weight Measured) alone is read as a weight.
+    #[test]
+    fn a_utc_time_counts_on_its_local_day_and_is_written_whole() {
+        let obs = |id: &str, code: &str, when: &str, v: f64, unit: &str| {
+            json!({"resourceType": "Observation", "id": id, "status": "final",
+                "code": {"coding": [{"system": LOINC, "code": code}]},
+                "subject": {"reference": "Patient/p1"}, "effectiveDateTime": when,
+                "valueQuantity": {"value": v, "system": "http://unitsofmeasure.org", "code": unit}})
+        };
+        let bundle = json!({"resourceType": "Bundle", "type": "collection", "entry": [
+            {"resource": {"resourceType": "Patient", "id": "p1", "gender": "male", "birthDate": "1979-01-02"}},
+            {"resource": obs("w1", BODY_WEIGHT, "2026-04-02T02:30:00Z", 91.5, "kg")},
+            {"resource": obs("w2", BODY_WEIGHT_MEASURED, "2026-04-09T07:00:00-04:00", 90.8, "kg")},
+            {"resource": obs("a1", HBA1C, "2026-04-02T03:05:00+00:00", 6.1, "%")},
+        ]});
+        let read = |zone: Option<&str>| {
+            let mut imp = Imported {
+                zone: zone.and_then(crate::program::files::LocalZone::parse),
+                ..Default::default()
+            };
+            imp.add(&bundle, &BTreeMap::new(), "b.json");
+            assert_eq!((imp.observations, imp.skipped, imp.utc_stamped), (3, 0, 2));
+            participant_files("P1", &imp.patients["p1"])
+        };
+        let files = read(Some("America/New_York"));
+        assert!(
+            files[0].1.contains("\nenrolled: 2026-04-01\n"),
+            "{}",
+            files[0].1
+        );
+        assert_eq!(
+            files[1].1,
+            "date,time,weight,unit,source\n2026-04-02T02:30:00Z,,91.5,kg,\n2026-04-09,07:00,90.8,kg,\n"
+        );
+        assert_eq!(
+            files[2].1,
+            "date,test,value,unit\n2026-04-02T03:05:00+00:00,hba1c,6.1,%\n"
+        );
+        // Without a zone the UTC day stands (and the import's summary says so).
+        let files = read(None);
+        assert!(
+            files[0].1.contains("\nenrolled: 2026-04-02\n"),
+            "{}",
+            files[0].1
+        );
+        assert!(files[1].1.contains("\n2026-04-02T02:30:00Z,,91.5,kg,\n"));
     }
 
     /// FHIR allows a birth date of a year or a year and month, and a gender of `other` or

@@ -1,6 +1,9 @@
 //! LOINC codes (system `http://loinc.org`) read by `import fhir` and, as a lab row's `test`,
 //! in `labs.csv`; each confirmed against published FHIR material:
 //! - 29463-7 Body weight — FHIR R4 `observation-example` (id `example`, 185 `[lb_av]`).
+//! - 3141-9 Body weight Measured — the same R4 example codes it beside 29463-7, and the DSTU 1
+//!   and DSTU 2 versions of that example (hl7.org/fhir/DSTU1/observation-example.json.html)
+//!   code the weight with it alone, as systems built on them still export it.
 //! - 8302-2 Body height — Vital Signs IG STU1 (hl7.org/fhir/us/vitals/STU1), `height-example`.
 //! - 8280-0 Waist circumference at umbilicus by tape measure — vital-signs Observation examples
 //!   of the HL7 Europe discharge-report IG (build.fhir.org/ig/hl7-eu/discharge-report).
@@ -18,6 +21,8 @@
 pub const LOINC: &str = "http://loinc.org";
 /// Body weight.
 pub const BODY_WEIGHT: &str = "29463-7";
+/// Body weight, measured (read as body weight).
+pub const BODY_WEIGHT_MEASURED: &str = "3141-9";
 /// Body height.
 pub const BODY_HEIGHT: &str = "8302-2";
 /// Waist circumference.
