@@ -159,14 +159,22 @@ fn quantity(q: &Value) -> Option<(f64, &str)> {
     Some((v, code))
 }
 
-/// The patient id an Observation is about (`Patient/ID`, or a `urn:uuid:` full URL of a Patient
-/// in the same Bundle).
+/// The patient id an Observation is about: the full URL of a Patient in the same Bundle
+/// (`urn:uuid:…` or an absolute URL), a relative `Patient/ID`, or an absolute
+/// `https://server/base/Patient/ID` — FHIR R4 allows a reference to be relative or absolute,
+/// with an optional `/_history/VERSION` (hl7.org/fhir/R4/references.html).
 fn subject(obs: &Value, urls: &BTreeMap<String, String>) -> Option<String> {
     let r = obs["subject"]["reference"].as_str()?;
-    if let Some(id) = r.strip_prefix("Patient/") {
-        return Some(id.split('/').next().unwrap_or(id).to_string());
+    if let Some(id) = urls.get(r) {
+        return Some(id.clone());
     }
-    urls.get(r).cloned()
+    let tail = match r.strip_prefix("Patient/") {
+        Some(t) => t,
+        None if r.contains("://") => &r[r.rfind("/Patient/")? + "/Patient/".len()..],
+        None => return None,
+    };
+    let id = tail.split('/').next().unwrap_or(tail);
+    (!id.is_empty()).then(|| id.to_string())
 }
 
 impl Imported {
@@ -966,6 +974,38 @@ mod tests {
             files[0].1
         );
         assert!(files[1].1.contains("\n2026-04-02T02:30:00Z,,91.5,kg,\n"));
+    }
+
+    /// A subject given as an absolute URL, with or without a version, is the same patient as
+    /// `Patient/ID` (it was skipped as "no Patient subject").
+    #[test]
+    fn a_subject_given_as_an_absolute_url_is_read() {
+        let refs = [
+            "Patient/p7",
+            "Patient/p7/_history/3",
+            "https://fhir.example.org/r4/Patient/p7",
+            "https://fhir.example.org/r4/Patient/p7/_history/2",
+        ];
+        for r in refs {
+            let obs = json!({"subject": {"reference": r}});
+            assert_eq!(
+                subject(&obs, &BTreeMap::new()).as_deref(),
+                Some("p7"),
+                "{r}"
+            );
+        }
+        for r in [
+            "Group/g1",
+            "https://fhir.example.org/r4/Group/g1",
+            "Patient/",
+            "urn:uuid:1",
+        ] {
+            let obs = json!({"subject": {"reference": r}});
+            assert_eq!(subject(&obs, &BTreeMap::new()), None, "{r}");
+        }
+        let urls = BTreeMap::from([("urn:uuid:1".to_string(), "p9".to_string())]);
+        let obs = json!({"subject": {"reference": "urn:uuid:1"}});
+        assert_eq!(subject(&obs, &urls).as_deref(), Some("p9"));
     }
 
     /// FHIR allows a birth date of a year or a year and month, and a gender of `other` or
