@@ -833,6 +833,10 @@ fn weight_chart(
         .as_ref()
         .is_some_and(|t| !t.weight_trend.points.is_empty());
     if let Some(t) = &v.trend {
+        // Dots of one day that print alike (to 0.1 of the unit, the resolution a scale shows
+        // and well under a dot's size at any chart height) are drawn once: a scale's raw log
+        // of thousands of readings a day made a 9 MB HTML page of dots on top of each other.
+        let mut seen = std::collections::HashSet::new();
         lines.push(LineSeries {
             label: "Weigh-ins".into(),
             points: t
@@ -840,6 +844,7 @@ fn weight_chart(
                 .points
                 .iter()
                 .map(|p| (p.date, conv(p.value)))
+                .filter(|&(d, y)| seen.insert((d, (y * 10.0).round() as i64)))
                 .collect(),
             style: LineStyle::Dots,
         });
