@@ -529,9 +529,49 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
     files
 }
 
+/// `Err` when `pid` cannot be written under `base` (`PROGRAM/participants`): its folder exists,
+/// or one whose name differs from it only in case. Checked for every patient before anything is
+/// written, and again under the import's lock (another import may have written it since).
+fn free_in(base: &Path, pid: &str) -> Result<(), (ImportFailure, String)> {
+    let dir = base.join(pid);
+    // A folder the program has whose name differs only in case: on a case-sensitive file
+    // system a second folder was written beside it, and `run` then leaves both out (the
+    // participant already there included), while the import said it had succeeded.
+    if let Some(existing) = std::fs::read_dir(&base).ok().and_then(|entries| {
+        entries
+            .filter_map(Result::ok)
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .find(|n| n != pid && n.eq_ignore_ascii_case(pid))
+    }) {
+        return Err((
+            ImportFailure::Write,
+            format!(
+                "{} holds `{existing}`, which differs from `{pid}` only in case; one person \
+                 would be two participant folders, and runs leave out both (the import never \
+                 changes existing participant folders: map the patient to `{existing}`'s \
+                 folder by hand, or to another id with --ids)",
+                base.display()
+            ),
+        ));
+    }
+    if dir.exists() {
+        return Err((
+            ImportFailure::Write,
+            format!(
+                "{} already exists; the import never changes existing participant folders (import into a new program folder, or move it away)",
+                dir.display()
+            ),
+        ));
+    }
+    Ok(())
+}
+
 /// The file that marks an import's staging folder as ours (`.cohortpress-import.staging/`), so
 /// that a leftover one is removed only when it is ours.
 const IMPORT_MARKER: &str = ".cohortpress-import";
+
+/// The lock file of imports into a program folder (`PROGRAM/.cohortpress-import.lock`).
+const IMPORT_LOCK: &str = ".cohortpress-import.lock";
 
 /// Why an import wrote nothing.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -540,6 +580,8 @@ pub enum ImportFailure {
     Usage,
     /// The participant folders cannot be written (or one exists already).
     Write,
+    /// Another import into the same program folder holds its lock.
+    Locked,
 }
 
 /// `cohortpress import fhir FILE… --out PROGRAM [--ids MAP.csv]`: writes one participant
@@ -605,36 +647,7 @@ pub fn import(
                 }
             )));
         }
-        let dir = base.join(&pid);
-        // A folder the program has whose name differs only in case: on a case-sensitive file
-        // system a second folder was written beside it, and `run` then leaves both out (the
-        // participant already there included), while the import said it had succeeded.
-        if let Some(existing) = std::fs::read_dir(&base).ok().and_then(|entries| {
-            entries
-                .filter_map(Result::ok)
-                .map(|e| e.file_name().to_string_lossy().into_owned())
-                .find(|n| *n != pid && n.eq_ignore_ascii_case(&pid))
-        }) {
-            return Err((
-                ImportFailure::Write,
-                format!(
-                    "{} holds `{existing}`, which differs from `{pid}` only in case; one person \
-                     would be two participant folders, and runs leave out both (the import never \
-                     changes existing participant folders: map the patient to `{existing}`'s \
-                     folder by hand, or to another id with --ids)",
-                    base.display()
-                ),
-            ));
-        }
-        if dir.exists() {
-            return Err((
-                ImportFailure::Write,
-                format!(
-                    "{} already exists; the import never changes existing participant folders (import into a new program folder, or move it away)",
-                    dir.display()
-                ),
-            ));
-        }
+        free_in(&base, &pid)?;
         plan.push((pid, data));
     }
     // Written into a staging folder beside the participants, then moved into place one folder
@@ -646,6 +659,49 @@ pub fn import(
             format!("cannot write the import ({e})"),
         )
     };
+    // One import at a time into a program folder: two shared the staging folder, and the
+    // second removed the first's as a leftover while the first was writing into it (the run
+    // lock's pattern, crate::output::Staging::begin). The file is left in place after the
+    // import: removing it would let a third import lock a new file while a second still holds
+    // the old one.
+    std::fs::create_dir_all(out).map_err(io)?;
+    let lock_path = out.join(IMPORT_LOCK);
+    let lock = crate::limits::open_lock_file(&lock_path).map_err(|e| {
+        (
+            ImportFailure::Write,
+            format!(
+                "cannot use the import's lock file {} ({e})",
+                lock_path.display()
+            ),
+        )
+    })?;
+    match lock.try_lock() {
+        Ok(()) => {}
+        Err(std::fs::TryLockError::WouldBlock) => {
+            return Err((
+                ImportFailure::Locked,
+                format!(
+                    "another cohortpress import is writing into {}; nothing was written (wait \
+                     for it to finish, then import again; lock: {})",
+                    out.display(),
+                    lock_path.display()
+                ),
+            ));
+        }
+        Err(std::fs::TryLockError::Error(e)) => {
+            return Err((
+                ImportFailure::Write,
+                format!(
+                    "cannot use the import's lock file {} ({e})",
+                    lock_path.display()
+                ),
+            ));
+        }
+    }
+    // Under the lock, again: an import that finished meanwhile may have written a folder.
+    for (pid, _) in &plan {
+        free_in(&base, pid)?;
+    }
     // A staging folder left by a killed import is removed; it is ours when it holds our marker
     // (or nothing). Anything else under the name (a folder of someone's, a link) was removed
     // with everything in it: it is refused, and nothing is written.

@@ -525,3 +525,67 @@ fn a_folder_of_someones_under_the_staging_name_is_never_removed() {
     assert!(program.join("participants/P1/profile.yaml").is_file());
     assert!(!staging.exists());
 }
+
+/// Two imports into one program folder shared `.cohortpress-import.staging` with no lock: the
+/// second took the first's staging folder (its marker says "an import's") for a leftover and
+/// removed it while the first was writing into it. Now the second refuses with the run lock's
+/// exit code 7 and touches nothing; the first is played here by this test, which holds the lock
+/// and has a participant folder half written in the staging folder.
+#[test]
+fn a_second_import_into_the_same_program_waits_its_turn() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("p.ndjson");
+    fs::write(
+        &file,
+        json!({"resourceType": "Patient", "id": "P2", "gender": "female"}).to_string(),
+    )
+    .unwrap();
+    let program = dir.path().join("prog");
+    let staging = program.join(".cohortpress-import.staging");
+    // The first import, mid-write: its lock held, its staging folder with a folder in it.
+    fs::create_dir_all(staging.join("P1")).unwrap();
+    fs::write(staging.join(".cohortpress-import"), "").unwrap();
+    fs::write(staging.join("P1/profile.yaml"), "id: P1\n").unwrap();
+    let lock = fs::File::create(program.join(".cohortpress-import.lock")).unwrap();
+    lock.try_lock().unwrap();
+    let import = || {
+        std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+            .args(["import", "fhir"])
+            .arg(&file)
+            .arg("--out")
+            .arg(&program)
+            .output()
+            .unwrap()
+    };
+    let o = import();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(7), "{o:?}");
+    assert!(
+        err.contains(&format!(
+            "another cohortpress import is writing into {}; nothing was written",
+            program.display()
+        )),
+        "{err}"
+    );
+    // The first import's staging is as it left it, and the second wrote nothing.
+    assert_eq!(
+        fs::read_to_string(staging.join("P1/profile.yaml")).unwrap(),
+        "id: P1\n"
+    );
+    assert!(staging.join(".cohortpress-import").is_file());
+    assert!(!program.join("participants").exists());
+    // The first finishes (its folder moved into place, its staging removed, the lock let go):
+    // the second import then goes through, beside it.
+    fs::create_dir_all(program.join("participants")).unwrap();
+    fs::rename(staging.join("P1"), program.join("participants/P1")).unwrap();
+    fs::remove_dir_all(&staging).unwrap();
+    drop(lock);
+    let o = import();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(program.join("participants/P2/profile.yaml").is_file());
+    assert_eq!(
+        fs::read_to_string(program.join("participants/P1/profile.yaml")).unwrap(),
+        "id: P1\n"
+    );
+    assert!(!staging.exists());
+}
