@@ -177,10 +177,11 @@ pub const MIN_CELL_FLOOR: u32 = 3;
 /// Semantic checks on a parsed program; returns every problem found.
 pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagnostic> {
     let mut out = Vec::new();
+    // At the key's value: line and column (these messages gave the line alone).
     let err = |key: &str, msg: String| {
         let mut d = Diagnostic::error(PROGRAM_FILE, msg).field(key);
-        if let Some(l) = key_line(text, key) {
-            d = d.at(l, None);
+        if let Some((l, c)) = key_position(text, key) {
+            d = d.at(l, c);
         }
         d
     };
@@ -256,8 +257,8 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 Diagnostic::error(PROGRAM_FILE, format!("module `{}` is listed twice", m.id))
                     .field(format!("modules[{i}].id"))
                     .hint("list each module once; put all its settings under one `with:`");
-            if let Some(l) = lines.get(&i) {
-                d = d.at(*l, None);
+            if let Some(&l) = lines.get(&i) {
+                d = d.at(l, entry_column(text, l, i));
             }
             out.push(d);
         }
@@ -647,6 +648,36 @@ pub fn key_position(text: &str, path: &str) -> Option<(u64, Option<u64>)> {
     Some((line, column))
 }
 
+/// The 1-based column where entry `index` of `modules:`, found on 1-based `line` by
+/// [`module_lines`], starts: after its indentation and `- ` in a block list, at its own `{` in a
+/// flow list on one line.
+fn entry_column(text: &str, line: u64, index: usize) -> Option<u64> {
+    let l = text
+        .lines()
+        .nth(usize::try_from(line).ok()?.checked_sub(1)?)?;
+    let at = match l.trim_start().strip_prefix('-') {
+        Some(rest) => l.len() - rest.trim_start().len(),
+        None => {
+            let open = l.find('[')?;
+            let mut depth = 0usize;
+            let mut starts = Vec::new();
+            for (i, c) in l[open + 1..].char_indices() {
+                match c {
+                    '{' if depth == 0 => {
+                        starts.push(open + 1 + i);
+                        depth += 1;
+                    }
+                    '{' | '[' => depth += 1,
+                    '}' | ']' if depth > 0 => depth -= 1,
+                    _ => {}
+                }
+            }
+            *starts.get(index)?
+        }
+    };
+    Some(l[..at].chars().count() as u64 + 1)
+}
+
 /// Letters, digits, `-` and `_`; not empty; at most 64 characters (it names files).
 pub fn is_plain_id(s: &str) -> bool {
     !s.is_empty()
@@ -931,6 +962,33 @@ report:
         // An unknown key under followup is refused like any other.
         let typo = format!("{GOOD}followup:\n  recipent: Program nurse\n");
         assert!(parse_program(root(), &typo).is_err());
+    }
+
+    /// Problems found after the file was read (an id that is not a plain name, an empty title,
+    /// a module listed twice, a minimum cell size under 3) were located by their line alone;
+    /// they are at the value's column (the entry's, for a module), in block and in flow style.
+    #[test]
+    fn problems_after_reading_are_located_at_line_and_column() {
+        let block = "format_version: 1\nprogram:\n  id: \"../x\"\n  title: \"\"\n  start: 2026-04-01\n  end: 2026-09-30\nmodules:\n  - id: trend\n  -   id: trend\nprivacy:\n  min_cell_size: 1\n";
+        let e = parse_program(root(), block).unwrap_err();
+        let at = |field: &str, e: &[Diagnostic]| {
+            let d = e
+                .iter()
+                .find(|d| d.field.as_deref() == Some(field))
+                .unwrap_or_else(|| panic!("{field}: {e:#?}"));
+            (d.line, d.column)
+        };
+        assert_eq!(at("program.id", &e), (Some(3), Some(7)));
+        assert_eq!(at("program.title", &e), (Some(4), Some(10)));
+        assert_eq!(at("modules[1].id", &e), (Some(9), Some(7)));
+        assert_eq!(at("privacy.min_cell_size", &e), (Some(11), Some(18)));
+        let flow = GOOD
+            .replace("id: demo-2026", "id: CON.x")
+            .replace("{id: adherence}", "{id: trend, with: {a: 1}}");
+        let e = parse_program(root(), &flow).unwrap_err();
+        assert_eq!(at("program.id", &e), (Some(2), Some(16)));
+        // The third entry of `modules: [ {id: trend}, {id: energy}, {id: trend, …} ]`.
+        assert_eq!(at("modules[2].id", &e), (Some(4), Some(39)));
     }
 
     /// A year typo (`start: 1950-01-01`) gave a program of a century, and a 48-person run took
