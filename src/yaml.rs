@@ -34,6 +34,19 @@ fn serde_error(e: &serde_yaml::Error, text: &str, file: &str) -> Diagnostic {
     if d.line.is_none() && d.message.contains("more than one document") {
         d.line = second_document_line(text);
     }
+    // A number of the wrong kind is named as written, not as serde reads it back (`1.6e1` was
+    // shown as `16.0`, and `-0` as `0`, beside "expected a whole number from 0 to …").
+    if let (Some(line), Some(col), Some(found)) = (d.line, d.column, d.found.clone())
+        && d.expected.as_deref().is_some_and(|e| e.contains("number"))
+        && found.trim_matches('`').parse::<f64>().is_ok()
+        && let Some(v) = scalar_at(text, line, col)
+        && v.parse::<f64>().is_ok()
+        && format!("`{v}`") != found
+    {
+        let expected = d.expected.clone().unwrap_or_default();
+        d.message = format!("expected {expected}, found `{v}`");
+        d = d.found(format!("`{v}`"));
+    }
     // A date that could not be read is named as written (`enrolled: 01/06/2026` said only
     // "input contains invalid characters", not what it had found there).
     if d.found.is_none()
@@ -630,6 +643,22 @@ fn in_plain_words(mut d: Diagnostic, found: &str, exp: &str) -> Diagnostic {
     d.found(shown).expected(expected.to_string())
 }
 
+/// The hint for a number where a whole number is expected (serde's `found`, the `expected` in
+/// plain words): `sessions_offered: 16.0`, `-3` or a number past the range were told to "quote
+/// text that YAML would read as a number", which is no way to write a count.
+fn whole_number_hint(found: &str, expected: Option<&str>) -> Option<&'static str> {
+    if !expected.is_some_and(|e| e.starts_with("a whole number")) {
+        return None;
+    }
+    if found.starts_with("floating point ") {
+        Some("write a whole number, without a decimal point or exponent (e.g. `16`)")
+    } else if found.starts_with("integer ") {
+        Some("write a whole number within the range expected")
+    } else {
+        None
+    }
+}
+
 fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
     let full = e.to_string();
     // serde_yaml appends " at line L column C" (and for libyaml errors a second context
@@ -705,6 +734,8 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
                         && d.expected.as_deref().is_some_and(|e| e.contains("number"))
                     {
                         hint = "write the number alone, without a unit or words (e.g. `45`)";
+                    } else if let Some(h) = whole_number_hint(found, d.expected.as_deref()) {
+                        hint = h;
                     }
                 }
                 d = d.hint(hint);
@@ -713,6 +744,9 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
     } else if let Some(rest) = msg.strip_prefix("invalid value: ") {
         if let Some((found, exp)) = rest.split_once(", expected ") {
             d = in_plain_words(d, found, exp);
+            if let Some(h) = whole_number_hint(found, d.expected.as_deref()) {
+                d = d.hint(h);
+            }
         }
     } else if is_date_error(&msg) {
         d = d
@@ -858,6 +892,40 @@ mod tests {
             )
         );
         assert_eq!((d.line, d.column), (Some(1), Some(8)), "{d}");
+    }
+
+    /// A count written `16.0`, `-3`, `1.6e1` or `-0` was told to "quote text that YAML would
+    /// read as a number or date" (quoted, it is text, refused too), and the last two were shown
+    /// as serde reads them back (`16.0`, `0`: "expected a whole number from 0 to …, found `0`").
+    /// Each is named as written, with a hint that says how to write a count.
+    #[test]
+    fn a_number_where_a_count_belongs_is_named_as_written_with_a_hint_that_fits() {
+        #[derive(Debug, Deserialize)]
+        #[allow(dead_code)]
+        struct Targets {
+            count: Option<u32>,
+        }
+        let err = |text: &str| from_str::<Targets>(text, "program.yaml").unwrap_err();
+        let decimal = "write a whole number, without a decimal point or exponent (e.g. `16`)";
+        let range = "write a whole number within the range expected";
+        for (written, hint) in [
+            ("16.0", decimal),
+            ("16.5", decimal),
+            ("1.6e1", decimal),
+            ("-0", range),
+            ("-3", range),
+            ("99999999999999999999", range),
+        ] {
+            let d = err(&format!("count: {written}\n"));
+            assert_eq!(
+                d.message,
+                format!("expected a whole number from 0 to 4,294,967,295, found `{written}`"),
+                "{d}"
+            );
+            assert_eq!(d.found, Some(format!("`{written}`")));
+            assert_eq!(d.hint.as_deref(), Some(hint), "{written}: {d}");
+            assert_eq!((d.line, d.column), (Some(1), Some(8)), "{d}");
+        }
     }
 
     #[test]
