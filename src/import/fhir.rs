@@ -431,25 +431,57 @@ pub fn read_id_map(path: &Path) -> Result<BTreeMap<String, String>, String> {
         ));
     };
     let mut map = BTreeMap::new();
+    // Each FHIR id's line, for naming the first of two.
+    let mut mapped_at: BTreeMap<String, usize> = BTreeMap::new();
     let mut seen = BTreeSet::new();
     for (i, line) in lines {
         let fields: Vec<&str> = line.split(delim).map(str::trim).collect();
         let (Some(fid), Some(pid)) = (fields.get(f), fields.get(p)) else {
             return Err(format!("{}:{}: a value is missing", path.display(), i + 1));
         };
+        // `FILE:LINE:COLUMN` of field `k` (1-based column, in characters).
+        let at = |k: usize| {
+            let before: usize = line
+                .split(delim)
+                .take(k)
+                .map(|v| v.chars().count() + 1)
+                .sum();
+            let field = line.split(delim).nth(k).unwrap_or_default();
+            let pad = field.chars().count() - field.trim_start().chars().count();
+            format!("{}:{}:{}", path.display(), i + 1, before + pad + 1)
+        };
         if !is_plain_id(pid) {
             return Err(format!(
-                "{}:{}: `{}` is not a usable participant id (letters, digits, `-`, `_`; at most 64)",
-                path.display(),
-                i + 1,
+                "{}: `{}` is not a usable participant id (letters, digits, `-`, `_`; at most 64)",
+                at(p),
                 shown(pid)
+            ));
+        }
+        // A folder so named is skipped by every run (`check` says why): the import said it
+        // had written the participant, and every run then left them out.
+        if crate::participant::is_device_name(pid) {
+            return Err(format!(
+                "{}: `{pid}` is a device name on Windows (CON, PRN, AUX, NUL, COM1–COM9, \
+                 LPT1–LPT9 in any case), which runs skip as a participant folder; map the \
+                 patient to another participant id",
+                at(p)
             ));
         }
         if !seen.insert(pid.to_string()) {
             return Err(format!(
-                "{}:{}: participant id `{pid}` is given to two FHIR ids",
-                path.display(),
-                i + 1
+                "{}: participant id `{pid}` is given to two FHIR ids",
+                at(p)
+            ));
+        }
+        // The same FHIR id twice: the last line won without a word, so a patient could be
+        // written under the id of the line a reader did not look at.
+        if let Some(first) = mapped_at.insert(fid.to_string(), i + 1) {
+            return Err(format!(
+                "{}: FHIR id `{}` is mapped twice (to `{}` on line {first}, and to `{pid}` here); \
+                 one FHIR patient is one participant: keep one of the lines",
+                at(f),
+                shown(fid),
+                map.get(*fid).map(String::as_str).unwrap_or_default()
             ));
         }
         map.insert(fid.to_string(), pid.to_string());
@@ -611,11 +643,16 @@ pub fn import(
                     continue;
                 }
             },
-            None if is_plain_id(fid) => fid.clone(),
+            None if is_plain_id(fid) && !crate::participant::is_device_name(fid) => fid.clone(),
             None => {
                 return Err(usage(format!(
-                    "FHIR patient id `{}` is not a usable participant id; give `--ids MAP.csv` with columns fhir_id,participant_id",
-                    shown(fid)
+                    "FHIR patient id `{}` is not a usable participant id{}; give `--ids MAP.csv` with columns fhir_id,participant_id",
+                    shown(fid),
+                    if is_plain_id(fid) {
+                        " (a device name on Windows, which runs skip as a participant folder)"
+                    } else {
+                        ""
+                    }
                 )));
             }
         };

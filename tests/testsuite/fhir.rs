@@ -589,3 +589,62 @@ fn a_second_import_into_the_same_program_waits_its_turn() {
     );
     assert!(!staging.exists());
 }
+
+/// An id map that gives one FHIR id two participant ids took the last line without a word, and
+/// a participant id such as `CON` (a device name on Windows) was written as a folder that every
+/// run skips, after the import said it had succeeded; so was a FHIR patient id `CON` without a
+/// map. Each is refused, naming the map's line and column, and nothing is written.
+#[test]
+fn an_id_map_that_is_ambiguous_or_names_a_device_is_refused() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("p.ndjson");
+    let patients = |id: &str| json!({"resourceType": "Patient", "id": id, "gender": "female"});
+    fs::write(&file, format!("{}\n{}\n", patients("abc"), patients("con"))).unwrap();
+    let program = dir.path().join("prog");
+    let map = dir.path().join("map.csv");
+    let import = |with_map: bool| {
+        let mut c = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"));
+        c.args(["import", "fhir"])
+            .arg(&file)
+            .arg("--out")
+            .arg(&program);
+        if with_map {
+            c.arg("--ids").arg(&map);
+        }
+        c.output().unwrap()
+    };
+    let m = map.display();
+    for (text, says) in [
+        (
+            "fhir_id,participant_id\nabc,P1\ncon,P3\n abc , P2\n",
+            format!("{m}:4:2: FHIR id `abc` is mapped twice (to `P1` on line 2, and to `P2` here)"),
+        ),
+        (
+            "fhir_id;participant_id\nabc;P1\ncon; Con\n",
+            format!("{m}:3:6: `Con` is a device name on Windows"),
+        ),
+    ] {
+        fs::write(&map, text).unwrap();
+        let o = import(true);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{err}");
+        assert!(err.contains(&says), "{err}");
+        assert!(!program.exists(), "nothing written");
+    }
+    // Without a map, the FHIR id `con` is not used as a participant id either.
+    let o = import(false);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains(
+            "FHIR patient id `con` is not a usable participant id (a device name on Windows"
+        ),
+        "{err}"
+    );
+    assert!(!program.exists(), "nothing written");
+    // A map without either problem goes through.
+    fs::write(&map, "fhir_id,participant_id\nabc,P1\ncon,P2\n").unwrap();
+    let o = import(true);
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(program.join("participants/P2/profile.yaml").is_file());
+}
