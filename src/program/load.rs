@@ -692,12 +692,34 @@ pub fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
     crate::limits::read_input(path)
 }
 
+/// How to save a YAML file the tool can read (the hint was about spreadsheets' "CSV UTF-8").
+const UTF8_HINT: &str = "save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8)";
+
 /// Decodes UTF-8 (a leading byte-order mark is skipped); on failure the diagnostic names the
 /// line and the byte column of the first bad byte.
 // A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
 #[allow(clippy::result_large_err)]
 pub fn decode_utf8<'a>(bytes: &'a [u8], file: &str) -> Result<&'a str, Diagnostic> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    // UTF-16 (an editor's "Unicode"): with its byte-order mark it was "byte 0xFF at byte
+    // column 1" with a hint about spreadsheets' CSV, and without one, valid UTF-8 full of zero
+    // bytes that the YAML parser called an "unprintable character", with a hint about tabs.
+    let utf16 = match bytes {
+        [0xFF, 0xFE, ..] => Some("a UTF-16 little-endian byte-order mark (bytes FF FE)"),
+        [0xFE, 0xFF, ..] => Some("a UTF-16 big-endian byte-order mark (bytes FE FF)"),
+        [a, 0, ..] | [0, a, ..] if *a != 0 => Some("a zero byte beside each character (UTF-16)"),
+        _ => None,
+    };
+    if let Some(found) = utf16 {
+        return Err(Diagnostic::error(
+            file,
+            "the file is UTF-16 text; this file is read as UTF-8 only",
+        )
+        .at(1, Some(1))
+        .expected("UTF-8 text")
+        .found(found)
+        .hint(UTF8_HINT));
+    }
     std::str::from_utf8(bytes).map_err(|e| {
         let at = e.valid_up_to();
         let before = &bytes[..at];
@@ -711,7 +733,7 @@ pub fn decode_utf8<'a>(bytes: &'a [u8], file: &str) -> Result<&'a str, Diagnosti
             .at(line, Some(col))
             .expected("UTF-8 text")
             .found(format!("byte 0x{:02X} at byte column {col}", bytes[at]))
-            .hint("save the file as UTF-8 (spreadsheet programs offer \"CSV UTF-8\")")
+            .hint(UTF8_HINT)
     })
 }
 
@@ -1200,6 +1222,41 @@ report:
         assert_eq!((e[0].line, e[0].column), (Some(2), Some(10)), "{}", e[0]);
         let e = load_program(&tmp.path().join("nowhere")).unwrap_err();
         assert!(e[0].message.contains("does not exist"));
+    }
+
+    /// A program.yaml saved as UTF-16 was "byte 0xFF at byte column 1" with a hint about
+    /// spreadsheets' "CSV UTF-8" (with a byte-order mark), or an "unprintable character" with
+    /// a hint about tabs (without one). Both say what the file is and how to save it.
+    #[test]
+    fn a_utf16_program_file_is_named_for_what_it_is() {
+        let tmp = tempfile::tempdir().unwrap();
+        let utf16: Vec<u8> = GOOD.encode_utf16().flat_map(u16::to_le_bytes).collect();
+        for (bytes, found) in [
+            (
+                [&[0xFF, 0xFE][..], &utf16].concat(),
+                "a UTF-16 little-endian byte-order mark (bytes FF FE)",
+            ),
+            (utf16.clone(), "a zero byte beside each character (UTF-16)"),
+        ] {
+            std::fs::write(tmp.path().join("program.yaml"), bytes).unwrap();
+            let e = load_program(tmp.path()).unwrap_err();
+            let d = &e[0];
+            assert_eq!(
+                d.message,
+                "the file is UTF-16 text; this file is read as UTF-8 only"
+            );
+            assert_eq!((d.line, d.column), (Some(1), Some(1)));
+            assert_eq!(d.found.as_deref(), Some(found));
+            assert_eq!(d.hint.as_deref(), Some(UTF8_HINT));
+        }
+        // Not valid UTF-8 otherwise: the hint is about saving the file as UTF-8, not a CSV.
+        std::fs::write(
+            tmp.path().join("program.yaml"),
+            b"format_version: 1\n\xe9\n",
+        )
+        .unwrap();
+        let e = load_program(tmp.path()).unwrap_err();
+        assert_eq!(e[0].hint.as_deref(), Some(UTF8_HINT), "{}", e[0]);
     }
 
     #[test]
