@@ -569,7 +569,7 @@ fn free_in(base: &Path, pid: &str) -> Result<(), (ImportFailure, String)> {
     // A folder the program has whose name differs only in case: on a case-sensitive file
     // system a second folder was written beside it, and `run` then leaves both out (the
     // participant already there included), while the import said it had succeeded.
-    if let Some(existing) = std::fs::read_dir(&base).ok().and_then(|entries| {
+    if let Some(existing) = std::fs::read_dir(base).ok().and_then(|entries| {
         entries
             .filter_map(Result::ok)
             .map(|e| e.file_name().to_string_lossy().into_owned())
