@@ -19,7 +19,8 @@ pub const MODULE_FAILED: i32 = 5;
 /// group-report ledger's folder cannot be used, so a run would stop before computing anything,
 /// or a participant page made from the program's own templates lacks the cautions.
 pub const OUTPUT_FAILED: i32 = 6;
-/// Another run holds the lock on the output folder.
+/// Another run holds the lock on the output folder (or, for `import fhir`, another import is
+/// writing into the same program folder).
 pub const LOCKED: i32 = 7;
 /// An internal error (a bug): please report it.
 pub const INTERNAL: i32 = 70;
@@ -88,6 +89,9 @@ pub const TABLE: &[(i32, &str)] = &[
         OUTPUT_FAILED,
         "writing outputs failed (a full disk, a file-size limit such as `ulimit -f`, a read-only folder: the message names the file); previous outputs were left intact (from `check`: the output folder or the group-report ledger's folder cannot be written or used, or a participant page from the program's own templates lacks the cautions, so a run would stop); also, before anything is computed, when the temporary folder external modules run in (`TMPDIR`, else `/tmp`) cannot be used",
     ),
-    (LOCKED, "another run holds the lock on the output folder"),
+    (
+        LOCKED,
+        "another run holds the lock on the output folder (for `import fhir`: another import is writing into the same program folder)",
+    ),
     (INTERNAL, "internal error (a bug)"),
 ];

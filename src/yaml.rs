@@ -34,6 +34,19 @@ fn serde_error(e: &serde_yaml::Error, text: &str, file: &str) -> Diagnostic {
     if d.line.is_none() && d.message.contains("more than one document") {
         d.line = second_document_line(text);
     }
+    // A number of the wrong kind is named as written, not as serde reads it back (`1.6e1` was
+    // shown as `16.0`, and `-0` as `0`, beside "expected a whole number from 0 to …").
+    if let (Some(line), Some(col), Some(found)) = (d.line, d.column, d.found.clone())
+        && d.expected.as_deref().is_some_and(|e| e.contains("number"))
+        && found.trim_matches('`').parse::<f64>().is_ok()
+        && let Some(v) = scalar_at(text, line, col)
+        && v.parse::<f64>().is_ok()
+        && format!("`{v}`") != found
+    {
+        let expected = d.expected.clone().unwrap_or_default();
+        d.message = format!("expected {expected}, found `{v}`");
+        d = d.found(format!("`{v}`"));
+    }
     // A date that could not be read is named as written (`enrolled: 01/06/2026` said only
     // "input contains invalid characters", not what it had found there).
     if d.found.is_none()
@@ -295,8 +308,19 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
                     // The scanner's own bound on flow nesting (deeper than ours, reached when
                     // it reads ahead, so its marker lies far past the point): the same refusal
                     // as below, at the bracket that passes our limit.
-                    let (line, col) =
-                        deep_flow_at(text, last_end, open.len()).unwrap_or((m.line(), m.col()));
+                    // The open collections that are flow ones (`[`, `{`) are the innermost.
+                    let flow = open_at
+                        .iter()
+                        .rev()
+                        .take_while(|&&(line, col)| {
+                            text.lines()
+                                .nth(line.saturating_sub(1))
+                                .and_then(|l| l.chars().nth(col))
+                                .is_some_and(|c| matches!(c, '[' | '{'))
+                        })
+                        .count();
+                    let (line, col) = deep_flow_at(text, last_end, open.len(), flow)
+                        .unwrap_or((m.line(), m.col()));
                     return Err(too_deep(file).at(line as u64, Some(col as u64 + 1)));
                 }
                 if e.info().contains("unknown anchor") {
@@ -438,32 +462,98 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
 }
 
 /// The line and 0-based column (in characters) of the `[` or `{` after `from` that opens the
-/// list or mapping one level past [`MAX_YAML_DEPTH`], given `depth` levels already open there.
-/// Quoted text is skipped; a closing bracket closes a level. `None` when no bracket does (the
-/// caller then keeps the parser's own position).
-fn deep_flow_at(text: &str, from: (usize, usize), depth: usize) -> Option<(usize, usize)> {
-    let mut depth = depth;
-    let mut quote: Option<char> = None;
+/// list or mapping one level past [`MAX_YAML_DEPTH`], given `depth` levels already open there,
+/// the innermost `flow` of them flow lists or mappings (`[`, `{`). Only brackets that open or
+/// close a collection count: scalars are skipped (quoted text with its escapes, `\\"` and `''`;
+/// plain text such as `don't` or `a"b`, which holds no flow indicator inside a flow collection
+/// and anything in a block one, `note: see [1]`), and so are comments, anchors, tags and
+/// aliases. `None` when no bracket does (the caller then keeps the parser's own position).
+///
+/// The parser's scanner reads a flow collection ahead to its end (or its own limit) before the
+/// parser gets the first event of it, so the text after `from` may hold any scalars: counting
+/// every bracket and taking `'` in `don't` for a quote placed the error at the wrong bracket, or
+/// (no bracket found) at the scanner's position, hundreds of columns past the point.
+fn deep_flow_at(
+    text: &str,
+    from: (usize, usize),
+    depth: usize,
+    flow: usize,
+) -> Option<(usize, usize)> {
+    // What the scan is in: a quoted scalar (its quote), a plain scalar, an anchor, tag or
+    // alias (`&a`, `!!str`, `*a`), just after a quoted scalar or a closed collection (where a
+    // `:` ends a key even with no space after it, `{"a":1}`), or between tokens.
+    #[derive(Clone, Copy, PartialEq)]
+    enum In {
+        Quoted(char),
+        Plain,
+        Property,
+        After,
+        Between,
+    }
+    let is_flow_indicator = |c: char| matches!(c, ',' | '[' | ']' | '{' | '}');
+    let (mut depth, mut flow) = (depth, flow);
+    let mut state = In::Between;
     for (i, line) in text.lines().enumerate().skip(from.0.saturating_sub(1)) {
-        let skip = if i + 1 == from.0 { from.1 } else { 0 };
-        let mut prev = ' ';
-        for (col, c) in line.chars().enumerate().skip(skip) {
-            match (quote, c) {
-                (Some('"'), '"') if prev != '\\' => quote = None,
-                (Some('\''), '\'') => quote = None,
-                (Some(_), _) => {}
-                (None, '"' | '\'') => quote = Some(c),
-                (None, '#') if prev.is_whitespace() => break,
-                (None, '[' | '{') => {
+        let chars: Vec<char> = line.chars().collect();
+        // A new line in block context starts a new node (a plain scalar going on over lines
+        // is read the same way); in flow context a plain scalar may go on.
+        if flow == 0 && !matches!(state, In::Quoted(_)) {
+            state = In::Between;
+        }
+        let mut col = if i + 1 == from.0 { from.1 } else { 0 };
+        while col < chars.len() {
+            let c = chars[col];
+            let prev = col.checked_sub(1).map_or(' ', |p| chars[p]);
+            let next = chars.get(col + 1).copied().unwrap_or(' ');
+            // `:` ends a key (and `-`, `?` start a node) when white space follows; in flow
+            // context a flow indicator may follow too.
+            let separated = next.is_whitespace() || (flow > 0 && is_flow_indicator(next));
+            match (state, c) {
+                // An escape takes the next character with it (`"a\\"` ends at its last quote).
+                (In::Quoted('"'), '\\') => col += 1,
+                (In::Quoted('"'), '"') => state = In::After,
+                // `''` is a quote inside single quotes.
+                (In::Quoted('\''), '\'') if next == '\'' => col += 1,
+                (In::Quoted('\''), '\'') => state = In::After,
+                (In::Quoted(_), _) => {}
+                // A comment, to the end of the line.
+                (_, '#') if prev.is_whitespace() => {
+                    state = match state {
+                        In::Plain => In::After,
+                        In::Property => In::Between,
+                        other => other,
+                    };
+                    break;
+                }
+                (In::Property, _) if c.is_whitespace() => state = In::Between,
+                (_, _) if c.is_whitespace() => {}
+                // In block context a plain scalar holds any bracket or quote; `: ` ends a key.
+                (In::Plain, ':') if flow == 0 && separated => state = In::Between,
+                (In::Plain, _) if flow == 0 => {}
+                (In::Property, _) if !(flow > 0 && is_flow_indicator(c)) => {}
+                (_, '[' | '{') => {
                     depth += 1;
+                    flow += 1;
                     if depth > MAX_YAML_DEPTH {
                         return Some((i + 1, col));
                     }
+                    state = In::Between;
                 }
-                (None, ']' | '}') => depth = depth.saturating_sub(1),
+                (_, ']' | '}') if flow > 0 => {
+                    depth = depth.saturating_sub(1);
+                    flow -= 1;
+                    state = In::After;
+                }
+                (_, ',') if flow > 0 => state = In::Between,
+                (In::After, ':') => state = In::Between,
+                (_, ':') if separated => state = In::Between,
+                (In::Between, '-' | '?') if separated => {}
+                (In::Between, '"' | '\'') => state = In::Quoted(c),
+                (In::Between, '&' | '!' | '*') => state = In::Property,
+                (In::Between | In::After, _) => state = In::Plain,
                 _ => {}
             }
-            prev = c;
+            col += 1;
         }
     }
     None
@@ -553,6 +643,22 @@ fn in_plain_words(mut d: Diagnostic, found: &str, exp: &str) -> Diagnostic {
     d.found(shown).expected(expected.to_string())
 }
 
+/// The hint for a number where a whole number is expected (serde's `found`, the `expected` in
+/// plain words): `sessions_offered: 16.0`, `-3` or a number past the range were told to "quote
+/// text that YAML would read as a number", which is no way to write a count.
+fn whole_number_hint(found: &str, expected: Option<&str>) -> Option<&'static str> {
+    if !expected.is_some_and(|e| e.starts_with("a whole number")) {
+        return None;
+    }
+    if found.starts_with("floating point ") {
+        Some("write a whole number, without a decimal point or exponent (e.g. `16`)")
+    } else if found.starts_with("integer ") {
+        Some("write a whole number within the range expected")
+    } else {
+        None
+    }
+}
+
 fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
     let full = e.to_string();
     // serde_yaml appends " at line L column C" (and for libyaml errors a second context
@@ -628,6 +734,8 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
                         && d.expected.as_deref().is_some_and(|e| e.contains("number"))
                     {
                         hint = "write the number alone, without a unit or words (e.g. `45`)";
+                    } else if let Some(h) = whole_number_hint(found, d.expected.as_deref()) {
+                        hint = h;
                     }
                 }
                 d = d.hint(hint);
@@ -636,6 +744,9 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
     } else if let Some(rest) = msg.strip_prefix("invalid value: ") {
         if let Some((found, exp)) = rest.split_once(", expected ") {
             d = in_plain_words(d, found, exp);
+            if let Some(h) = whole_number_hint(found, d.expected.as_deref()) {
+                d = d.hint(h);
+            }
         }
     } else if is_date_error(&msg) {
         d = d
@@ -781,6 +892,40 @@ mod tests {
             )
         );
         assert_eq!((d.line, d.column), (Some(1), Some(8)), "{d}");
+    }
+
+    /// A count written `16.0`, `-3`, `1.6e1` or `-0` was told to "quote text that YAML would
+    /// read as a number or date" (quoted, it is text, refused too), and the last two were shown
+    /// as serde reads them back (`16.0`, `0`: "expected a whole number from 0 to …, found `0`").
+    /// Each is named as written, with a hint that says how to write a count.
+    #[test]
+    fn a_number_where_a_count_belongs_is_named_as_written_with_a_hint_that_fits() {
+        #[derive(Debug, Deserialize)]
+        #[allow(dead_code)]
+        struct Targets {
+            count: Option<u32>,
+        }
+        let err = |text: &str| from_str::<Targets>(text, "program.yaml").unwrap_err();
+        let decimal = "write a whole number, without a decimal point or exponent (e.g. `16`)";
+        let range = "write a whole number within the range expected";
+        for (written, hint) in [
+            ("16.0", decimal),
+            ("16.5", decimal),
+            ("1.6e1", decimal),
+            ("-0", range),
+            ("-3", range),
+            ("99999999999999999999", range),
+        ] {
+            let d = err(&format!("count: {written}\n"));
+            assert_eq!(
+                d.message,
+                format!("expected a whole number from 0 to 4,294,967,295, found `{written}`"),
+                "{d}"
+            );
+            assert_eq!(d.found, Some(format!("`{written}`")));
+            assert_eq!(d.hint.as_deref(), Some(hint), "{written}: {d}");
+            assert_eq!((d.line, d.column), (Some(1), Some(8)), "{d}");
+        }
     }
 
     #[test]
@@ -974,6 +1119,99 @@ mod tests {
         }
         let ok = format!("a: {}{}", "[".repeat(31), "]".repeat(31));
         assert!(from_str::<Value>(&ok, "deep.yaml").is_ok());
+    }
+
+    /// Scalars between the start of a deep flow collection and the bracket past the limit are
+    /// read ahead by the scanner before the parser sees them, and the bracket was found by
+    /// counting every `[` and `{` after the last event: `don't` or `a"b` started a quoted
+    /// string, `"a\\"` did not end one, so the error was placed at the scanner's position
+    /// (column 267 where the bracket is at column 43), or at a bracket in the text. Each
+    /// scalar below is placed inside the nesting, alone and after each other one; the error is
+    /// at the bracket that opens level 33, counted by construction.
+    #[test]
+    fn deep_flow_nesting_is_located_past_any_scalar() {
+        let items = [
+            r#""a\\""#,
+            r#""\"[[""#,
+            "'it''s [['",
+            "don't",
+            r#"a"b"#,
+            "a#b",
+            r#""x]]]""#,
+            "'[[['",
+            r##""#[[""##,
+            "&an 1",
+            r#"!!str "q[[""#,
+            r#"{"k":"v"}"#,
+            r#"{k: [1, "]"]}"#,
+            "[]",
+            "\"multi\n  line [[\\\\\"",
+            "a: b",
+            "a:b",
+            "1 # a comment [[[ {{\n",
+            "? k : v",
+            "-1",
+        ];
+        let mut cases: Vec<Vec<&str>> = items.iter().map(|i| vec![*i]).collect();
+        for a in items {
+            for b in items {
+                cases.push(vec![a, b]);
+            }
+        }
+        cases.push(items.to_vec());
+        for case in cases {
+            // Level 1 is the mapping, 2 to 11 the brackets before the scalars.
+            let head = format!("note: \"[[[\"\nx: {} {}, ", "[".repeat(10), case.join(", "));
+            let text = format!("{head}{}{}\n", "[".repeat(300), "]".repeat(310));
+            let d = from_str::<Value>(&text, "deep.yaml").unwrap_err();
+            assert!(
+                d.message.contains("nested more than 32 levels"),
+                "{case:?}: {d}"
+            );
+            // The 22nd bracket of the deep run opens level 33.
+            let at = head.chars().count() + 21;
+            let before: String = text.chars().take(at).collect();
+            let line = before.matches('\n').count() + 1;
+            let column = before.rsplit('\n').next().unwrap().chars().count() + 1;
+            assert_eq!(
+                (d.line, d.column),
+                (Some(line as u64), Some(column as u64)),
+                "{case:?}"
+            );
+        }
+    }
+
+    /// From a point in block context (the mapping open, nothing else): a plain scalar's
+    /// brackets and quotes (`see [1] [[[`, `it's`) and a comment's are text; the nesting starts
+    /// at `x:`'s first bracket, so its 32nd opens level 33.
+    #[test]
+    fn deep_flow_at_skips_block_plain_text_and_comments() {
+        let text = format!(
+            "note: see [1] [[[ it's {{\n# [[[[ {{\nx: {}\n",
+            "[".repeat(40)
+        );
+        assert_eq!(deep_flow_at(&text, (1, 0), 1, 0), Some((3, 3 + 31)));
+        // Inside a flow list opened on line 1: the plain `it's` and the comment end nothing.
+        let text = format!("x: [it's, # ']\n {}\n", "[".repeat(40));
+        assert_eq!(deep_flow_at(&text, (1, 4), 2, 1), Some((2, 1 + 30)));
+    }
+
+    /// Brackets in a scalar are text, however many: never counted as nesting.
+    #[test]
+    fn brackets_inside_scalars_are_not_nesting() {
+        let deep = "[".repeat(300) + &"{".repeat(300);
+        for text in [
+            format!("note: \"{deep}\"\n"),
+            format!("note: '{deep}'\n"),
+            format!("note: a{deep}\n"),
+            format!("note: [\"{deep}\", '{deep}', a\"b]\n"),
+            format!("note: |\n  {deep}\n"),
+        ] {
+            let v: Value = from_str(&text, "p.yaml").unwrap_or_else(|d| panic!("{d}"));
+            let note = &v["note"];
+            let s = note.as_str().or_else(|| note[0].as_str()).unwrap();
+            assert_eq!(s.trim_end().trim_start_matches('a'), deep);
+        }
     }
 
     #[test]

@@ -251,6 +251,7 @@ fn import_fhir(files: &[PathBuf], out: &Path, ids: Option<&Path>) -> i32 {
             match why {
                 ImportFailure::Usage => exit_code::USAGE,
                 ImportFailure::Write => exit_code::OUTPUT_FAILED,
+                ImportFailure::Locked => exit_code::LOCKED,
             }
         }
     }

@@ -500,25 +500,57 @@ pub fn read_id_map(path: &Path) -> Result<BTreeMap<String, String>, String> {
         ));
     };
     let mut map = BTreeMap::new();
+    // Each FHIR id's line, for naming the first of two.
+    let mut mapped_at: BTreeMap<String, usize> = BTreeMap::new();
     let mut seen = BTreeSet::new();
     for (i, line) in lines {
         let fields: Vec<&str> = line.split(delim).map(str::trim).collect();
         let (Some(fid), Some(pid)) = (fields.get(f), fields.get(p)) else {
             return Err(format!("{}:{}: a value is missing", path.display(), i + 1));
         };
+        // `FILE:LINE:COLUMN` of field `k` (1-based column, in characters).
+        let at = |k: usize| {
+            let before: usize = line
+                .split(delim)
+                .take(k)
+                .map(|v| v.chars().count() + 1)
+                .sum();
+            let field = line.split(delim).nth(k).unwrap_or_default();
+            let pad = field.chars().count() - field.trim_start().chars().count();
+            format!("{}:{}:{}", path.display(), i + 1, before + pad + 1)
+        };
         if !is_plain_id(pid) {
             return Err(format!(
-                "{}:{}: `{}` is not a usable participant id (letters, digits, `-`, `_`; at most 64)",
-                path.display(),
-                i + 1,
+                "{}: `{}` is not a usable participant id (letters, digits, `-`, `_`; at most 64)",
+                at(p),
                 shown(pid)
+            ));
+        }
+        // A folder so named is skipped by every run (`check` says why): the import said it
+        // had written the participant, and every run then left them out.
+        if crate::participant::is_device_name(pid) {
+            return Err(format!(
+                "{}: `{pid}` is a device name on Windows (CON, PRN, AUX, NUL, COM1–COM9, \
+                 LPT1–LPT9 in any case), which runs skip as a participant folder; map the \
+                 patient to another participant id",
+                at(p)
             ));
         }
         if !seen.insert(pid.to_string()) {
             return Err(format!(
-                "{}:{}: participant id `{pid}` is given to two FHIR ids",
-                path.display(),
-                i + 1
+                "{}: participant id `{pid}` is given to two FHIR ids",
+                at(p)
+            ));
+        }
+        // The same FHIR id twice: the last line won without a word, so a patient could be
+        // written under the id of the line a reader did not look at.
+        if let Some(first) = mapped_at.insert(fid.to_string(), i + 1) {
+            return Err(format!(
+                "{}: FHIR id `{}` is mapped twice (to `{}` on line {first}, and to `{pid}` here); \
+                 one FHIR patient is one participant: keep one of the lines",
+                at(f),
+                shown(fid),
+                map.get(*fid).map(String::as_str).unwrap_or_default()
             ));
         }
         map.insert(fid.to_string(), pid.to_string());
@@ -593,9 +625,49 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
     files
 }
 
+/// `Err` when `pid` cannot be written under `base` (`PROGRAM/participants`): its folder exists,
+/// or one whose name differs from it only in case. Checked for every patient before anything is
+/// written, and again under the import's lock (another import may have written it since).
+fn free_in(base: &Path, pid: &str) -> Result<(), (ImportFailure, String)> {
+    let dir = base.join(pid);
+    // A folder the program has whose name differs only in case: on a case-sensitive file
+    // system a second folder was written beside it, and `run` then leaves both out (the
+    // participant already there included), while the import said it had succeeded.
+    if let Some(existing) = std::fs::read_dir(base).ok().and_then(|entries| {
+        entries
+            .filter_map(Result::ok)
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .find(|n| n != pid && n.eq_ignore_ascii_case(pid))
+    }) {
+        return Err((
+            ImportFailure::Write,
+            format!(
+                "{} holds `{existing}`, which differs from `{pid}` only in case; one person \
+                 would be two participant folders, and runs leave out both (the import never \
+                 changes existing participant folders: map the patient to `{existing}`'s \
+                 folder by hand, or to another id with --ids)",
+                base.display()
+            ),
+        ));
+    }
+    if dir.exists() {
+        return Err((
+            ImportFailure::Write,
+            format!(
+                "{} already exists; the import never changes existing participant folders (import into a new program folder, or move it away)",
+                dir.display()
+            ),
+        ));
+    }
+    Ok(())
+}
+
 /// The file that marks an import's staging folder as ours (`.cohortpress-import.staging/`), so
 /// that a leftover one is removed only when it is ours.
 const IMPORT_MARKER: &str = ".cohortpress-import";
+
+/// The lock file of imports into a program folder (`PROGRAM/.cohortpress-import.lock`).
+const IMPORT_LOCK: &str = ".cohortpress-import.lock";
 
 /// Why an import wrote nothing.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -604,6 +676,8 @@ pub enum ImportFailure {
     Usage,
     /// The participant folders cannot be written (or one exists already).
     Write,
+    /// Another import into the same program folder holds its lock.
+    Locked,
 }
 
 /// `cohortpress import fhir FILE… --out PROGRAM [--ids MAP.csv]`: writes one participant
@@ -645,11 +719,16 @@ pub fn import(
                     continue;
                 }
             },
-            None if is_plain_id(fid) => fid.clone(),
+            None if is_plain_id(fid) && !crate::participant::is_device_name(fid) => fid.clone(),
             None => {
                 return Err(usage(format!(
-                    "FHIR patient id `{}` is not a usable participant id; give `--ids MAP.csv` with columns fhir_id,participant_id",
-                    shown(fid)
+                    "FHIR patient id `{}` is not a usable participant id{}; give `--ids MAP.csv` with columns fhir_id,participant_id",
+                    shown(fid),
+                    if is_plain_id(fid) {
+                        " (a device name on Windows, which runs skip as a participant folder)"
+                    } else {
+                        ""
+                    }
                 )));
             }
         };
@@ -681,36 +760,7 @@ pub fn import(
                 }
             )));
         }
-        let dir = base.join(&pid);
-        // A folder the program has whose name differs only in case: on a case-sensitive file
-        // system a second folder was written beside it, and `run` then leaves both out (the
-        // participant already there included), while the import said it had succeeded.
-        if let Some(existing) = std::fs::read_dir(&base).ok().and_then(|entries| {
-            entries
-                .filter_map(Result::ok)
-                .map(|e| e.file_name().to_string_lossy().into_owned())
-                .find(|n| *n != pid && n.eq_ignore_ascii_case(&pid))
-        }) {
-            return Err((
-                ImportFailure::Write,
-                format!(
-                    "{} holds `{existing}`, which differs from `{pid}` only in case; one person \
-                     would be two participant folders, and runs leave out both (the import never \
-                     changes existing participant folders: map the patient to `{existing}`'s \
-                     folder by hand, or to another id with --ids)",
-                    base.display()
-                ),
-            ));
-        }
-        if dir.exists() {
-            return Err((
-                ImportFailure::Write,
-                format!(
-                    "{} already exists; the import never changes existing participant folders (import into a new program folder, or move it away)",
-                    dir.display()
-                ),
-            ));
-        }
+        free_in(&base, &pid)?;
         plan.push((pid, data));
     }
     // Written into a staging folder beside the participants, then moved into place one folder
@@ -722,6 +772,49 @@ pub fn import(
             format!("cannot write the import ({e})"),
         )
     };
+    // One import at a time into a program folder: two shared the staging folder, and the
+    // second removed the first's as a leftover while the first was writing into it (the run
+    // lock's pattern, crate::output::Staging::begin). The file is left in place after the
+    // import: removing it would let a third import lock a new file while a second still holds
+    // the old one.
+    std::fs::create_dir_all(out).map_err(io)?;
+    let lock_path = out.join(IMPORT_LOCK);
+    let lock = crate::limits::open_lock_file(&lock_path).map_err(|e| {
+        (
+            ImportFailure::Write,
+            format!(
+                "cannot use the import's lock file {} ({e})",
+                lock_path.display()
+            ),
+        )
+    })?;
+    match lock.try_lock() {
+        Ok(()) => {}
+        Err(std::fs::TryLockError::WouldBlock) => {
+            return Err((
+                ImportFailure::Locked,
+                format!(
+                    "another cohortpress import is writing into {}; nothing was written (wait \
+                     for it to finish, then import again; lock: {})",
+                    out.display(),
+                    lock_path.display()
+                ),
+            ));
+        }
+        Err(std::fs::TryLockError::Error(e)) => {
+            return Err((
+                ImportFailure::Write,
+                format!(
+                    "cannot use the import's lock file {} ({e})",
+                    lock_path.display()
+                ),
+            ));
+        }
+    }
+    // Under the lock, again: an import that finished meanwhile may have written a folder.
+    for (pid, _) in &plan {
+        free_in(&base, pid)?;
+    }
     // A staging folder left by a killed import is removed; it is ours when it holds our marker
     // (or nothing). Anything else under the name (a folder of someone's, a link) was removed
     // with everything in it: it is refused, and nothing is written.

@@ -476,7 +476,9 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
 
 /// Whether `id` is a name Windows reserves for a device, with or without an extension
 /// (Microsoft, "Naming Files, Paths, and Namespaces"): `CON.html` cannot be created there.
-fn is_device_name(id: &str) -> bool {
+/// Whether `id` is a device name on Windows (`CON`, `NUL`, `COM1` …, in any case): a folder
+/// so named is skipped by discovery, and `import fhir` writes none.
+pub(crate) fn is_device_name(id: &str) -> bool {
     let upper = id.to_ascii_uppercase();
     matches!(upper.as_str(), "CON" | "PRN" | "AUX" | "NUL")
         || ((upper.starts_with("COM") || upper.starts_with("LPT"))

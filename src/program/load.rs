@@ -177,10 +177,11 @@ pub const MIN_CELL_FLOOR: u32 = 3;
 /// Semantic checks on a parsed program; returns every problem found.
 pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagnostic> {
     let mut out = Vec::new();
+    // At the key's value: line and column (these messages gave the line alone).
     let err = |key: &str, msg: String| {
         let mut d = Diagnostic::error(PROGRAM_FILE, msg).field(key);
-        if let Some(l) = key_line(text, key) {
-            d = d.at(l, None);
+        if let Some((l, c)) = key_position(text, key) {
+            d = d.at(l, c);
         }
         d
     };
@@ -256,8 +257,8 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
                 Diagnostic::error(PROGRAM_FILE, format!("module `{}` is listed twice", m.id))
                     .field(format!("modules[{i}].id"))
                     .hint("list each module once; put all its settings under one `with:`");
-            if let Some(l) = lines.get(&i) {
-                d = d.at(*l, None);
+            if let Some(&l) = lines.get(&i) {
+                d = d.at(l, entry_column(text, l, i));
             }
             out.push(d);
         }
@@ -647,6 +648,36 @@ pub fn key_position(text: &str, path: &str) -> Option<(u64, Option<u64>)> {
     Some((line, column))
 }
 
+/// The 1-based column where entry `index` of `modules:`, found on 1-based `line` by
+/// [`module_lines`], starts: after its indentation and `- ` in a block list, at its own `{` in a
+/// flow list on one line.
+fn entry_column(text: &str, line: u64, index: usize) -> Option<u64> {
+    let l = text
+        .lines()
+        .nth(usize::try_from(line).ok()?.checked_sub(1)?)?;
+    let at = match l.trim_start().strip_prefix('-') {
+        Some(rest) => l.len() - rest.trim_start().len(),
+        None => {
+            let open = l.find('[')?;
+            let mut depth = 0usize;
+            let mut starts = Vec::new();
+            for (i, c) in l[open + 1..].char_indices() {
+                match c {
+                    '{' if depth == 0 => {
+                        starts.push(open + 1 + i);
+                        depth += 1;
+                    }
+                    '{' | '[' => depth += 1,
+                    '}' | ']' if depth > 0 => depth -= 1,
+                    _ => {}
+                }
+            }
+            *starts.get(index)?
+        }
+    };
+    Some(l[..at].chars().count() as u64 + 1)
+}
+
 /// Letters, digits, `-` and `_`; not empty; at most 64 characters (it names files).
 pub fn is_plain_id(s: &str) -> bool {
     !s.is_empty()
@@ -661,12 +692,34 @@ pub fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
     crate::limits::read_input(path)
 }
 
+/// How to save a YAML file the tool can read (the hint was about spreadsheets' "CSV UTF-8").
+const UTF8_HINT: &str = "save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8)";
+
 /// Decodes UTF-8 (a leading byte-order mark is skipped); on failure the diagnostic names the
 /// line and the byte column of the first bad byte.
 // A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
 #[allow(clippy::result_large_err)]
 pub fn decode_utf8<'a>(bytes: &'a [u8], file: &str) -> Result<&'a str, Diagnostic> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    // UTF-16 (an editor's "Unicode"): with its byte-order mark it was "byte 0xFF at byte
+    // column 1" with a hint about spreadsheets' CSV, and without one, valid UTF-8 full of zero
+    // bytes that the YAML parser called an "unprintable character", with a hint about tabs.
+    let utf16 = match bytes {
+        [0xFF, 0xFE, ..] => Some("a UTF-16 little-endian byte-order mark (bytes FF FE)"),
+        [0xFE, 0xFF, ..] => Some("a UTF-16 big-endian byte-order mark (bytes FE FF)"),
+        [a, 0, ..] | [0, a, ..] if *a != 0 => Some("a zero byte beside each character (UTF-16)"),
+        _ => None,
+    };
+    if let Some(found) = utf16 {
+        return Err(Diagnostic::error(
+            file,
+            "the file is UTF-16 text; this file is read as UTF-8 only",
+        )
+        .at(1, Some(1))
+        .expected("UTF-8 text")
+        .found(found)
+        .hint(UTF8_HINT));
+    }
     std::str::from_utf8(bytes).map_err(|e| {
         let at = e.valid_up_to();
         let before = &bytes[..at];
@@ -680,7 +733,7 @@ pub fn decode_utf8<'a>(bytes: &'a [u8], file: &str) -> Result<&'a str, Diagnosti
             .at(line, Some(col))
             .expected("UTF-8 text")
             .found(format!("byte 0x{:02X} at byte column {col}", bytes[at]))
-            .hint("save the file as UTF-8 (spreadsheet programs offer \"CSV UTF-8\")")
+            .hint(UTF8_HINT)
     })
 }
 
@@ -933,6 +986,33 @@ report:
         assert!(parse_program(root(), &typo).is_err());
     }
 
+    /// Problems found after the file was read (an id that is not a plain name, an empty title,
+    /// a module listed twice, a minimum cell size under 3) were located by their line alone;
+    /// they are at the value's column (the entry's, for a module), in block and in flow style.
+    #[test]
+    fn problems_after_reading_are_located_at_line_and_column() {
+        let block = "format_version: 1\nprogram:\n  id: \"../x\"\n  title: \"\"\n  start: 2026-04-01\n  end: 2026-09-30\nmodules:\n  - id: trend\n  -   id: trend\nprivacy:\n  min_cell_size: 1\n";
+        let e = parse_program(root(), block).unwrap_err();
+        let at = |field: &str, e: &[Diagnostic]| {
+            let d = e
+                .iter()
+                .find(|d| d.field.as_deref() == Some(field))
+                .unwrap_or_else(|| panic!("{field}: {e:#?}"));
+            (d.line, d.column)
+        };
+        assert_eq!(at("program.id", &e), (Some(3), Some(7)));
+        assert_eq!(at("program.title", &e), (Some(4), Some(10)));
+        assert_eq!(at("modules[1].id", &e), (Some(9), Some(7)));
+        assert_eq!(at("privacy.min_cell_size", &e), (Some(11), Some(18)));
+        let flow = GOOD
+            .replace("id: demo-2026", "id: CON.x")
+            .replace("{id: adherence}", "{id: trend, with: {a: 1}}");
+        let e = parse_program(root(), &flow).unwrap_err();
+        assert_eq!(at("program.id", &e), (Some(2), Some(16)));
+        // The third entry of `modules: [ {id: trend}, {id: energy}, {id: trend, …} ]`.
+        assert_eq!(at("modules[2].id", &e), (Some(4), Some(39)));
+    }
+
     /// A year typo (`start: 1950-01-01`) gave a program of a century, and a 48-person run took
     /// 90 s and 1.5 GB over decades of empty weeks. Over 10 years (3,653 days) it is refused at
     /// `program.end`'s value, in block and in flow style; exactly 10 years is accepted.
@@ -1142,6 +1222,41 @@ report:
         assert_eq!((e[0].line, e[0].column), (Some(2), Some(10)), "{}", e[0]);
         let e = load_program(&tmp.path().join("nowhere")).unwrap_err();
         assert!(e[0].message.contains("does not exist"));
+    }
+
+    /// A program.yaml saved as UTF-16 was "byte 0xFF at byte column 1" with a hint about
+    /// spreadsheets' "CSV UTF-8" (with a byte-order mark), or an "unprintable character" with
+    /// a hint about tabs (without one). Both say what the file is and how to save it.
+    #[test]
+    fn a_utf16_program_file_is_named_for_what_it_is() {
+        let tmp = tempfile::tempdir().unwrap();
+        let utf16: Vec<u8> = GOOD.encode_utf16().flat_map(u16::to_le_bytes).collect();
+        for (bytes, found) in [
+            (
+                [&[0xFF, 0xFE][..], &utf16].concat(),
+                "a UTF-16 little-endian byte-order mark (bytes FF FE)",
+            ),
+            (utf16.clone(), "a zero byte beside each character (UTF-16)"),
+        ] {
+            std::fs::write(tmp.path().join("program.yaml"), bytes).unwrap();
+            let e = load_program(tmp.path()).unwrap_err();
+            let d = &e[0];
+            assert_eq!(
+                d.message,
+                "the file is UTF-16 text; this file is read as UTF-8 only"
+            );
+            assert_eq!((d.line, d.column), (Some(1), Some(1)));
+            assert_eq!(d.found.as_deref(), Some(found));
+            assert_eq!(d.hint.as_deref(), Some(UTF8_HINT));
+        }
+        // Not valid UTF-8 otherwise: the hint is about saving the file as UTF-8, not a CSV.
+        std::fs::write(
+            tmp.path().join("program.yaml"),
+            b"format_version: 1\n\xe9\n",
+        )
+        .unwrap();
+        let e = load_program(tmp.path()).unwrap_err();
+        assert_eq!(e[0].hint.as_deref(), Some(UTF8_HINT), "{}", e[0]);
     }
 
     #[test]

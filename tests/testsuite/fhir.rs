@@ -525,3 +525,126 @@ fn a_folder_of_someones_under_the_staging_name_is_never_removed() {
     assert!(program.join("participants/P1/profile.yaml").is_file());
     assert!(!staging.exists());
 }
+
+/// Two imports into one program folder shared `.cohortpress-import.staging` with no lock: the
+/// second took the first's staging folder (its marker says "an import's") for a leftover and
+/// removed it while the first was writing into it. Now the second refuses with the run lock's
+/// exit code 7 and touches nothing; the first is played here by this test, which holds the lock
+/// and has a participant folder half written in the staging folder.
+#[test]
+fn a_second_import_into_the_same_program_waits_its_turn() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("p.ndjson");
+    fs::write(
+        &file,
+        json!({"resourceType": "Patient", "id": "P2", "gender": "female"}).to_string(),
+    )
+    .unwrap();
+    let program = dir.path().join("prog");
+    let staging = program.join(".cohortpress-import.staging");
+    // The first import, mid-write: its lock held, its staging folder with a folder in it.
+    fs::create_dir_all(staging.join("P1")).unwrap();
+    fs::write(staging.join(".cohortpress-import"), "").unwrap();
+    fs::write(staging.join("P1/profile.yaml"), "id: P1\n").unwrap();
+    let lock = fs::File::create(program.join(".cohortpress-import.lock")).unwrap();
+    lock.try_lock().unwrap();
+    let import = || {
+        std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+            .args(["import", "fhir"])
+            .arg(&file)
+            .arg("--out")
+            .arg(&program)
+            .output()
+            .unwrap()
+    };
+    let o = import();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(7), "{o:?}");
+    assert!(
+        err.contains(&format!(
+            "another cohortpress import is writing into {}; nothing was written",
+            program.display()
+        )),
+        "{err}"
+    );
+    // The first import's staging is as it left it, and the second wrote nothing.
+    assert_eq!(
+        fs::read_to_string(staging.join("P1/profile.yaml")).unwrap(),
+        "id: P1\n"
+    );
+    assert!(staging.join(".cohortpress-import").is_file());
+    assert!(!program.join("participants").exists());
+    // The first finishes (its folder moved into place, its staging removed, the lock let go):
+    // the second import then goes through, beside it.
+    fs::create_dir_all(program.join("participants")).unwrap();
+    fs::rename(staging.join("P1"), program.join("participants/P1")).unwrap();
+    fs::remove_dir_all(&staging).unwrap();
+    drop(lock);
+    let o = import();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(program.join("participants/P2/profile.yaml").is_file());
+    assert_eq!(
+        fs::read_to_string(program.join("participants/P1/profile.yaml")).unwrap(),
+        "id: P1\n"
+    );
+    assert!(!staging.exists());
+}
+
+/// An id map that gives one FHIR id two participant ids took the last line without a word, and
+/// a participant id such as `CON` (a device name on Windows) was written as a folder that every
+/// run skips, after the import said it had succeeded; so was a FHIR patient id `CON` without a
+/// map. Each is refused, naming the map's line and column, and nothing is written.
+#[test]
+fn an_id_map_that_is_ambiguous_or_names_a_device_is_refused() {
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("p.ndjson");
+    let patients = |id: &str| json!({"resourceType": "Patient", "id": id, "gender": "female"});
+    fs::write(&file, format!("{}\n{}\n", patients("abc"), patients("con"))).unwrap();
+    let program = dir.path().join("prog");
+    let map = dir.path().join("map.csv");
+    let import = |with_map: bool| {
+        let mut c = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"));
+        c.args(["import", "fhir"])
+            .arg(&file)
+            .arg("--out")
+            .arg(&program);
+        if with_map {
+            c.arg("--ids").arg(&map);
+        }
+        c.output().unwrap()
+    };
+    let m = map.display();
+    for (text, says) in [
+        (
+            "fhir_id,participant_id\nabc,P1\ncon,P3\n abc , P2\n",
+            format!("{m}:4:2: FHIR id `abc` is mapped twice (to `P1` on line 2, and to `P2` here)"),
+        ),
+        (
+            "fhir_id;participant_id\nabc;P1\ncon; Con\n",
+            format!("{m}:3:6: `Con` is a device name on Windows"),
+        ),
+    ] {
+        fs::write(&map, text).unwrap();
+        let o = import(true);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{err}");
+        assert!(err.contains(&says), "{err}");
+        assert!(!program.exists(), "nothing written");
+    }
+    // Without a map, the FHIR id `con` is not used as a participant id either.
+    let o = import(false);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains(
+            "FHIR patient id `con` is not a usable participant id (a device name on Windows"
+        ),
+        "{err}"
+    );
+    assert!(!program.exists(), "nothing written");
+    // A map without either problem goes through.
+    fs::write(&map, "fhir_id,participant_id\nabc,P1\ncon,P2\n").unwrap();
+    let o = import(true);
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(program.join("participants/P2/profile.yaml").is_file());
+}
