@@ -169,6 +169,13 @@ pub fn check_program(root: &Path, as_of: NaiveDate) -> CheckReport {
             p.diagnostics.push(d);
         }
     }
+    let mut discovery = discovery;
+    discovery.extend(participant::group_keys_nobody_has(
+        prog,
+        participants
+            .iter()
+            .filter_map(|p| p.data.as_ref().map(|d| &d.profile.groups)),
+    ));
     CheckReport {
         program,
         participants,

@@ -938,6 +938,64 @@ pub fn load_opened(
     }
 }
 
+/// `report.group_by` keys that no usable participant's profile gives (a typing error such as
+/// `sites` for `site`): a warning each, at `report.group_by` in program.yaml. Without it the
+/// group report split everyone into one section, "(not recorded)", and said the groups were too
+/// small. `groups` holds each usable participant's groups (after
+/// [`group_keys_as_the_program_names_them`]); with no usable participant nothing is said.
+pub fn group_keys_nobody_has<'a>(
+    program: &Program,
+    groups: impl IntoIterator<Item = &'a BTreeMap<String, String>>,
+) -> Vec<Diagnostic> {
+    let mut given: std::collections::BTreeSet<&str> = std::collections::BTreeSet::new();
+    let mut any = false;
+    for g in groups {
+        any = true;
+        given.extend(g.keys().map(String::as_str));
+    }
+    if !any {
+        return Vec::new();
+    }
+    let at = crate::program::load::key_position_in_file(&program.root, "report.group_by");
+    program
+        .def
+        .report
+        .group_by
+        .iter()
+        .filter(|k| !given.contains(k.as_str()))
+        .map(|k| {
+            let shown_keys: Vec<String> = given
+                .iter()
+                .take(10)
+                .map(|g| format!("`{}`", crate::diag::printable(g)))
+                .collect();
+            let mut d = Diagnostic::warning(
+                crate::program::load::PROGRAM_FILE,
+                format!(
+                    "no participant's profile.yaml gives group `{}`, so the group report's \
+                     split by it would hold everyone under \"(not recorded)\"",
+                    crate::diag::printable(k)
+                ),
+            )
+            .field("report.group_by")
+            .expected(if shown_keys.is_empty() {
+                "a key the profiles give under `groups:` (they give none)".to_string()
+            } else {
+                format!(
+                    "a key the profiles give under `groups:`: {}",
+                    shown_keys.join(", ")
+                )
+            })
+            .found(k.clone())
+            .hint("spell it as the profiles do, or add it under `groups:` in the profiles");
+            if let Some((line, col)) = at {
+                d = d.at(line, col);
+            }
+            d
+        })
+        .collect()
+}
+
 /// A profile's group keys written in other case or spacing than `report.group_by` names them
 /// (`Site:` for `group_by: [site]`, as YAML keys are typed by hand): read as the program's key,
 /// with a note. Compared as written, the participant had no site: counted as "(not recorded)",

@@ -371,7 +371,7 @@ pub fn finish(
     columns: &tidy::Columns,
 ) -> Result<(RunSummary, Timing), RunError> {
     let mut timing = Timing::default();
-    let (summary, all_diags, rows, inputs) = tally(discovery, records);
+    let (mut summary, all_diags, rows, inputs) = tally(discovery, records);
 
     // Group step and group reports. A run of hand-picked participants (`--only`, also when
     // its shards are merged) writes none: a group report of everyone but one, set against the
@@ -454,6 +454,12 @@ pub fn finish(
                         .join(", ")
                 );
             }
+        }
+        // A group_by key no profile gives (checked here, over the group step's rows, so a
+        // merge of shards says it as a whole run does).
+        for d in participant::group_keys_nobody_has(&plan.program, rows.iter().map(|r| &r.groups)) {
+            d.log(LogLevel::Warn, &d.to_string().replace('\n', " |"));
+            summary.program_warnings += 1;
         }
         let program_id = plan.program.info.id.clone();
         let (period_from, period_to) = (plan.period.from.to_string(), plan.period.to.to_string());

@@ -265,3 +265,58 @@ fn the_underweight_cut_off_is_one_setting() {
     assert!(run.stderr.contains(&want), "{want} not in {run:?}");
     assert!(!out2.exists());
 }
+
+/// A `group_by` key no profile gives (`sites` for the profiles' `site`) is a warning at
+/// program.yaml's `report.group_by`, from `check` and from `run`, naming the keys the profiles
+/// do give. Before, the group report silently put all 50 people in one section, "(not
+/// recorded)".
+#[test]
+fn a_group_by_key_no_profile_gives_is_named_by_check_and_run() {
+    let t = ProgramTest::sample();
+    let file = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&file).unwrap();
+    let warning = "no participant's profile.yaml gives group `sites`";
+    let run = |t: &ProgramTest, out: &str| {
+        let out = t.dir.join(out);
+        t.run(&[
+            "run",
+            ".",
+            "--as-of",
+            AS_OF,
+            "--formats",
+            "html",
+            "--out",
+            &out.to_string_lossy(),
+            "--state",
+            &t.dir.join(".state").to_string_lossy(),
+        ])
+    };
+    // As shipped (`group_by: [site]`): no such warning.
+    let check = t.run(&["check", ".", "--as-of", AS_OF]);
+    assert!(
+        !check
+            .stdout
+            .contains("no participant's profile.yaml gives group")
+    );
+
+    let edited = text.replace("group_by: [site]", "group_by: [sites]");
+    assert_ne!(edited, text);
+    std::fs::write(&file, &edited).unwrap();
+    let line = edited
+        .lines()
+        .position(|l| l.contains("group_by: [sites]"))
+        .unwrap()
+        + 1;
+    let check = t.run(&["check", ".", "--as-of", AS_OF]);
+    let at = format!("program.yaml:{line}:13: {warning}");
+    assert!(check.stdout.contains(&at), "{at} not in {check:?}");
+    assert!(
+        check.stdout.contains(
+            "expected: a key the profiles give under `groups:`: `site`, `team`; found: sites"
+        ),
+        "{check:?}"
+    );
+    let r = run(&t, "out");
+    assert!(r.code <= 4, "{r:?}");
+    assert!(r.stderr.contains(&at), "{r:?}");
+}
