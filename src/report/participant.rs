@@ -9,6 +9,7 @@ use crate::diag::{Diagnostic, Severity};
 use crate::modules::{BuiltinViews, ModuleResults, views::BUILTIN};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
+    VLine,
 };
 use chrono::{Datelike as _, NaiveDate};
 use cohortpress_metric_adherence::view::AdherenceView as AdherenceResults;
@@ -214,7 +215,11 @@ pub fn build(
         .and_then(|o| o.baseline_weight_kg)
         .filter(|_| !(no_loss && p.targets.weight_change_percent < 0.0))
         .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
-    let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan, p.enrolled);
+    // Someone who stopped the program: the day they left is marked, and the weigh-ins after
+    // it (follow-up) are seen to be after it.
+    let left_follow_up = left.filter(|_| p.follow_up_weigh_ins());
+    let (weight_chart, weight_view) =
+        weight_chart(&v, target_kg, units, plan, p.enrolled, left_follow_up);
 
     // Someone who never logged activity read "Activity minutes per week 0 (target 150)" and
     // "Activity, beyond resting 0 kcal/day", as if they had done none (the module counts no log
@@ -848,6 +853,7 @@ fn weight_chart(
     units: UnitSystem,
     plan: &Scope<'_>,
     enrolled: NaiveDate,
+    left_follow_up: Option<NaiveDate>,
 ) -> (Chart, ChartView) {
     let conv = |kg: f64| fmt::weight_value(kg, units);
     let unit = fmt::weight_unit(units);
@@ -1002,6 +1008,20 @@ fn weight_chart(
             ));
         }
     }
+    let vlines: Vec<VLine> = left_follow_up
+        .map(|w| VLine {
+            label: format!("Left the program, {}", fmt::date(w)),
+            tag: "left the program".into(),
+            date: w,
+        })
+        .into_iter()
+        .collect();
+    if let Some(w) = left_follow_up {
+        alt.push_str(&format!(
+            " A vertical line marks {}, the day you left the program; weigh-ins after it are follow-up.",
+            fmt::date(w)
+        ));
+    }
     let chart = Chart::Line(LineChart {
         title: "Weight".into(),
         y_label: unit.into(),
@@ -1009,6 +1029,7 @@ fn weight_chart(
         bands,
         spans,
         hlines,
+        vlines,
         alt_text: alt.clone(),
     });
     (
@@ -1283,6 +1304,7 @@ fn energy_section(
         bands: vec![],
         spans: vec![],
         hlines: vec![],
+        vlines: vec![],
         alt_text: alt,
     }));
     let view = EnergyView {
