@@ -89,7 +89,7 @@ pub struct HLine {
 /// program`) and its legend entry (`label`).
 #[derive(Debug, Clone, PartialEq)]
 pub struct VLine {
-    /// The legend entry (`Left the program, 8 Sep 2026`).
+    /// The legend entry (`Left the program`).
     pub label: String,
     /// The words at the rule's top (`left the program`).
     pub tag: String,

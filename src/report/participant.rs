@@ -1010,7 +1010,9 @@ fn weight_chart(
     }
     let vlines: Vec<VLine> = left_follow_up
         .map(|w| VLine {
-            label: format!("Left the program, {}", fmt::date(w)),
+            // The date is in the description: with it the legend entry was cut short in the
+            // narrow drawing ("Left the program, 27 Jul 2…").
+            label: "Left the program".into(),
             tag: "left the program".into(),
             date: w,
         })
