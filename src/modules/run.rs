@@ -8,7 +8,9 @@
 
 use super::registry::ModuleSet;
 use chrono::NaiveDate;
+use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_api::{ModuleContext, ModuleOutput, ParticipantData, Period, ProgramInfo};
+use cohortpress_metric_energy::view::EnergyView;
 use serde::Serialize;
 use std::collections::BTreeMap;
 use std::panic::{AssertUnwindSafe, catch_unwind};
@@ -71,9 +73,35 @@ impl ModuleResults {
     }
 }
 
+/// Modules that set logged food and activity against the weight trend (implied intake, the
+/// share of intake not logged, total energy use from the trend): for someone who stopped the
+/// program (`withdrawal_reason: stopped_program`) they are given the records up to the
+/// `withdrew` day only, weigh-ins included, and the modules they need are run on the same,
+/// since the logs end on that day while the follow-up weigh-ins run on. Every other module
+/// sees the follow-up weigh-ins (the weight at the time point is an intention-to-treat outcome).
+pub const PROGRAM_DAYS_ONLY: [&str; 1] = [EnergyView::MODULE];
+
+/// `data` with the weigh-ins after `withdrew` left out, when it has any (only someone who
+/// stopped the program does: after withdrawn consent none is read); `None` otherwise.
+pub fn without_follow_up(data: &ParticipantData) -> Option<ParticipantData> {
+    let left = data
+        .profile
+        .withdrew
+        .filter(|_| data.profile.follow_up_weigh_ins())?;
+    if !data.weights.iter().any(|w| w.date > left) {
+        return None;
+    }
+    let mut cut = data.clone();
+    cut.weights.retain(|w| w.date <= left);
+    Some(cut)
+}
+
 impl ModuleSet {
     /// Runs every module for one participant, in order. Never fails as a whole: each module's
-    /// problem is a [`ModuleFailure`] in the result.
+    /// problem is a [`ModuleFailure`] in the result. The modules of [`PROGRAM_DAYS_ONLY`] (and
+    /// the ones before them, for their inputs) run a second time on the records up to the
+    /// withdrawal day when there are follow-up weigh-ins after it ([`without_follow_up`]), and
+    /// their results are those of that second run.
     pub fn run(
         &self,
         program: &ProgramInfo,
@@ -81,74 +109,116 @@ impl ModuleSet {
         as_of: NaiveDate,
         data: &ParticipantData,
     ) -> ModuleResults {
+        let cut = without_follow_up(data);
+        let last_program_only = self
+            .entries
+            .iter()
+            .rposition(|e| PROGRAM_DAYS_ONLY.contains(&e.spec.id.as_str()));
         let mut results = ModuleResults::default();
-        for entry in &self.entries {
-            let id = entry.spec.id.clone();
-            if let Some(need) = entry
-                .spec
-                .requires
-                .iter()
-                .find(|need| results.output(need).is_none())
-            {
-                results.failures.push(ModuleFailure {
-                    module: id,
-                    message: format!("skipped: needs {need}"),
-                });
-                continue;
-            }
-            let ctx = ModuleContext {
-                program: program.clone(),
-                period,
-                as_of,
-                settings: entry.settings.clone(),
-                earlier: results
-                    .outputs
-                    .iter()
-                    .map(|(m, o)| (m.clone(), o.clone()))
-                    .collect::<BTreeMap<_, _>>(),
+        // The same modules on the records up to the withdrawal day (only with follow-up
+        // weigh-ins, and only up to the last module of PROGRAM_DAYS_ONLY).
+        let mut program_days = ModuleResults::default();
+        for (i, entry) in self.entries.iter().enumerate() {
+            let program_only = PROGRAM_DAYS_ONLY.contains(&entry.spec.id.as_str());
+            let on_cut = cut
+                .as_ref()
+                .filter(|_| last_program_only.is_some_and(|last| i <= last))
+                .map(|cut| self.run_one(entry, program, period, as_of, cut, &program_days));
+            let outcome = match &on_cut {
+                Some(o) if program_only => o.clone(),
+                _ => self.run_one(entry, program, period, as_of, data, &results),
             };
-            // AssertUnwindSafe: the module gets shared references only, and after a panic we
-            // drop its context and never look at its state again.
-            let outcome = catch_unwind(AssertUnwindSafe(|| entry.module.compute(&ctx, data)));
-            match outcome {
-                Ok(Ok(output)) => results.outputs.push((id, output)),
-                Ok(Err(e)) => {
-                    if entry.command.is_some() {
-                        // The outputs keep only cohortpress's words (`for_outputs`); the module's
-                        // own are logged here, with whom they concern.
-                        tracing::warn!(
-                            participant = data.profile.id.as_str(),
-                            module = id.as_str(),
-                            "{}: module {id} failed: {}",
-                            data.profile.id,
-                            e.message.replace('\n', " |")
-                        );
-                    }
-                    results.failures.push(ModuleFailure {
-                        module: id,
-                        message: e.message,
-                    })
-                }
-                Err(panic) => {
-                    let what = panic
-                        .downcast_ref::<&str>()
-                        .map(|s| s.to_string())
-                        .or_else(|| panic.downcast_ref::<String>().cloned())
-                        .unwrap_or_else(|| "no message".into());
-                    tracing::error!(
-                        participant = data.profile.id.as_str(),
-                        module = entry.spec.id.as_str(),
-                        "module `{}` panicked for participant {}: {what}",
-                        entry.spec.id,
-                        data.profile.id
-                    );
-                    results.failures.push(ModuleFailure {
-                        module: id,
-                        message: format!("internal error in the module (it panicked: {what})"),
-                    });
-                }
+            if let Some(o) = on_cut {
+                program_days.push(&entry.spec.id, o);
             }
+            results.push(&entry.spec.id, outcome);
         }
         results
+    }
+
+    /// Runs one module on `data`, after the modules of `results`.
+    pub(super) fn run_one(
+        &self,
+        entry: &super::registry::Entry,
+        program: &ProgramInfo,
+        period: Period,
+        as_of: NaiveDate,
+        data: &ParticipantData,
+        results: &ModuleResults,
+    ) -> Result<ModuleOutput, ModuleFailure> {
+        let id = entry.spec.id.clone();
+        if let Some(need) = entry
+            .spec
+            .requires
+            .iter()
+            .find(|need| results.output(need).is_none())
+        {
+            return Err(ModuleFailure {
+                module: id,
+                message: format!("skipped: needs {need}"),
+            });
+        }
+        let ctx = ModuleContext {
+            program: program.clone(),
+            period,
+            as_of,
+            settings: entry.settings.clone(),
+            earlier: results
+                .outputs
+                .iter()
+                .map(|(m, o)| (m.clone(), o.clone()))
+                .collect::<BTreeMap<_, _>>(),
+        };
+        // AssertUnwindSafe: the module gets shared references only, and after a panic we
+        // drop its context and never look at its state again.
+        let outcome = catch_unwind(AssertUnwindSafe(|| entry.module.compute(&ctx, data)));
+        match outcome {
+            Ok(Ok(output)) => Ok(output),
+            Ok(Err(e)) => {
+                if entry.command.is_some() {
+                    // The outputs keep only cohortpress's words (`for_outputs`); the module's
+                    // own are logged here, with whom they concern.
+                    tracing::warn!(
+                        participant = data.profile.id.as_str(),
+                        module = id.as_str(),
+                        "{}: module {id} failed: {}",
+                        data.profile.id,
+                        e.message.replace('\n', " |")
+                    );
+                }
+                Err(ModuleFailure {
+                    module: id,
+                    message: e.message,
+                })
+            }
+            Err(panic) => {
+                let what = panic
+                    .downcast_ref::<&str>()
+                    .map(|s| s.to_string())
+                    .or_else(|| panic.downcast_ref::<String>().cloned())
+                    .unwrap_or_else(|| "no message".into());
+                tracing::error!(
+                    participant = data.profile.id.as_str(),
+                    module = entry.spec.id.as_str(),
+                    "module `{}` panicked for participant {}: {what}",
+                    entry.spec.id,
+                    data.profile.id
+                );
+                Err(ModuleFailure {
+                    module: id,
+                    message: format!("internal error in the module (it panicked: {what})"),
+                })
+            }
+        }
+    }
+}
+
+impl ModuleResults {
+    /// Adds module `id`'s output or failure.
+    fn push(&mut self, id: &str, outcome: Result<ModuleOutput, ModuleFailure>) {
+        match outcome {
+            Ok(output) => self.outputs.push((id.to_string(), output)),
+            Err(f) => self.failures.push(f),
+        }
     }
 }

@@ -1,6 +1,7 @@
 //! Unit tests of the registry and the runner, with small in-process modules written here.
 
 use super::registry::build_with;
+use super::run::without_follow_up;
 use super::*;
 use crate::diag::{Diagnostic, Severity};
 use crate::program::{Program, ProgramDef};
@@ -604,4 +605,85 @@ fn an_external_failure_is_written_in_the_outputs_without_the_modules_words_or_pa
     }
     assert_eq!(f("skipped: needs trend"), "skipped: needs trend");
     assert_eq!(f("cannot count today"), "cannot count today");
+}
+
+/// Someone who stopped the program on day 70 of the fixture's twelve weeks and weighed in as
+/// follow-up to day 83, 2 kg lower. The energy module set logs that end on day 70 against a
+/// trend that ran on to day 83 (an implied intake, an intake gap, a 28-day energy use from a
+/// trend the logs never saw). It is now given the records up to day 70 only, the trend on them
+/// included: exactly what it gives after a withdrawal of consent on the same day. The trend
+/// and the outcomes still see the follow-up weigh-ins (the time point's weight, ITT).
+#[test]
+fn energy_is_given_the_records_up_to_the_withdrawal_day_only_after_stopping_the_program() {
+    use cohortpress_metric_api::{WithdrawalReason, fixture};
+    use cohortpress_metric_energy::view::EnergyView;
+    use cohortpress_metric_outcomes::view::OutcomesView;
+    use cohortpress_metric_trend::view::TrendView;
+    let prog = program("  - id: trend\n  - id: energy\n  - id: adherence\n  - id: outcomes\n");
+    let (set, diags) = build_with(&prog, registry::builtin_modules()).expect("builds");
+    assert!(errors(&diags).is_empty(), "{diags:?}");
+    let left = fixture::start() + chrono::Duration::days(70);
+    let mut stopped = fixture::participant();
+    stopped.profile.withdrew = Some(left);
+    stopped.profile.withdrawal_reason = WithdrawalReason::StoppedProgram;
+    // What the loader keeps: logs up to the day; the weigh-ins after it as follow-up.
+    stopped.intake.retain(|x| x.date <= left);
+    stopped.activity.retain(|x| x.date <= left);
+    stopped.sessions.retain(|x| x.date <= left);
+    stopped.labs.retain(|x| x.date <= left);
+    for w in stopped.weights.iter_mut().filter(|w| w.date > left) {
+        w.weight = Mass::from_kg(w.weight.kg() - 2.0);
+    }
+    let mut consent = stopped.clone();
+    consent.profile.withdrawal_reason = WithdrawalReason::Consent;
+    consent.weights.retain(|w| w.date <= left);
+    let spec = registry::builtin_modules()[0].spec();
+    let fx = fixture::context(&spec, &[]);
+    let (prog_info, period, as_of) = (fx.program, fx.period, fx.as_of);
+    let run = |p: &ParticipantData| set.run(&prog_info, period, as_of, p);
+    let (s, c) = (run(&stopped), run(&consent));
+    assert!(
+        s.failures.is_empty() && c.failures.is_empty(),
+        "{:?}",
+        s.failures
+    );
+    assert_eq!(s.output("energy"), c.output("energy"));
+    let e: EnergyView = s.view().unwrap();
+    assert_eq!(
+        e.weekly_energy
+            .last()
+            .map(|w| w.implied_intake_kcal_per_day),
+        c.view::<EnergyView>()
+            .unwrap()
+            .weekly_energy
+            .last()
+            .map(|w| w.implied_intake_kcal_per_day)
+    );
+    // The weekly table ends with the withdrawal week; the run on every weigh-in (what the
+    // module was given before) differs.
+    let whole = without_follow_up(&stopped).expect("follow-up weigh-ins");
+    assert_eq!(whole.weights.last().map(|w| w.date), Some(left));
+    let before: ModuleResults = {
+        let mut r = ModuleResults::default();
+        let trend = s.output("trend").unwrap().clone();
+        r.outputs.push(("trend".into(), trend));
+        r
+    };
+    let energy_entry = set.entries.iter().find(|x| x.spec.id == "energy").unwrap();
+    let naive = set
+        .run_one(energy_entry, &prog_info, period, as_of, &stopped, &before)
+        .expect("energy runs");
+    assert_ne!(Some(&naive), s.output("energy"));
+    // The trend and the outcomes read the follow-up weigh-ins: the latest trend level is about
+    // 2 kg below the consent run's.
+    let (ts, tc): (TrendView, TrendView) = (s.view().unwrap(), c.view().unwrap());
+    let (ws, wc) = (
+        ts.current_weight_kg.value.unwrap(),
+        tc.current_weight_kg.value.unwrap(),
+    );
+    assert!(wc - ws > 1.0, "trend {ws} kg vs {wc} kg");
+    let (os, oc): (OutcomesView, OutcomesView) = (s.view().unwrap(), c.view().unwrap());
+    assert_ne!(os.change_kg, oc.change_kg);
+    // Without follow-up weigh-ins (consent, or none after the day) nothing is run twice.
+    assert!(without_follow_up(&consent).is_none());
 }

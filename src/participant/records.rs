@@ -10,8 +10,8 @@ use super::quantity::{
     MassUnit, WrittenDuration, WrittenMass, number_prefix_len, split_duration, split_mass,
 };
 use super::table::{
-    Cells, CsvOptions, Dropped, FileCtx, SUMMARY_LABELS, Table, When, header_key, is_label,
-    read_table,
+    Cells, CsvOptions, Dropped, FileCtx, LocalZone, SUMMARY_LABELS, Table, When, header_key,
+    is_label, read_table,
 };
 use crate::activities;
 use crate::diag::{Diagnostic, Severity};
@@ -1841,7 +1841,18 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
         );
         return None;
     };
-    let minutes = (end.date.and_time(t1) - start.date.and_time(t0)).num_seconds() as f64 / 60.0;
+    let (local0, local1) = (start.date.and_time(t0), end.date.and_time(t1));
+    let minutes = match &c.opts.time_zone {
+        // Without `input.time_zone` the two clock times are taken as written, on one clock
+        // (as before the zone was read here): an activity across a daylight-saving change is
+        // an hour off, which only the zone can tell.
+        None => (local1 - local0).num_seconds() as f64 / 60.0,
+        Some(zone) => {
+            let t0 = zoned_instant(c, start_col, local0, zone, &found, d)?;
+            let t1 = zoned_instant(c, "end", local1, zone, &found, d)?;
+            (t1 - t0).num_seconds() as f64 / 60.0
+        }
+    };
     if minutes < 0.0 {
         d.push(
             c.warn(
@@ -1869,6 +1880,55 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
     c.table
         .recognised("durations as the time from each activity's start to its end");
     Some(minutes)
+}
+
+/// The instant of an activity's start or end (`col`, read as the local `local`) in the
+/// program's zone: a time written with its offset or as UTC is that instant; a local time is
+/// placed by the zone's daylight-saving rules (IANA tzdata), so an activity across the change
+/// lasts what it lasted. A local time the clocks skipped (02:30 on a spring-forward night in
+/// Europe/Berlin) names no instant: a warning at its cell, and the row is dropped. One that
+/// happens twice (02:30 on a fall-back night) is taken at the earlier offset (summer time, the
+/// first time the clock shows it), with a warning at its cell saying so: RFC 5545 §3.3.5 takes
+/// a repeated local time as its first occurrence (from memory).
+fn zoned_instant(
+    c: &Cells<'_>,
+    col: &str,
+    local: chrono::NaiveDateTime,
+    zone: &LocalZone,
+    found: &str,
+    d: &mut Vec<Diagnostic>,
+) -> Option<chrono::DateTime<chrono::FixedOffset>> {
+    if let Some(t) = c.instant(col) {
+        return Some(t);
+    }
+    let shown = local.format("%Y-%m-%d %H:%M");
+    let name = zone.name();
+    match zone.resolve(local) {
+        chrono::LocalResult::Single(t) => Some(t),
+        chrono::LocalResult::Ambiguous(first, second) => {
+            d.push(
+                c.warn(col, format!(
+                    "`{shown}` happens twice in {name} (the clocks go back an hour that night); read as the first, at {} (the earlier offset), not {}",
+                    first.offset(), second.offset()
+                ))
+                .expected(format!("a local time that happens once in {name}, or a time with its offset"))
+                .found(found.to_string())
+                .hint("export the activities with their offsets or in UTC, or with a duration column"),
+            );
+            Some(first)
+        }
+        chrono::LocalResult::None => {
+            d.push(
+                c.warn(col, format!(
+                    "`{shown}` does not exist in {name} (the clocks go forward an hour that night), so the activity's duration cannot be told; the row is dropped"
+                ))
+                .expected(format!("a local time that exists in {name}, or a time with its offset"))
+                .found(found.to_string())
+                .hint("a device whose clock had not changed yet writes such times: export the activities with their offsets or in UTC, or with a duration column"),
+            );
+            None
+        }
+    }
 }
 
 /// Parses `activity.csv`: codes from the activity table, or any label with an explicit `met`.

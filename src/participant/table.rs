@@ -2089,19 +2089,7 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
             local(t.naive_local())
         }
     };
-    // `Z`, or the word `UTC` or `GMT` after the time (`2026-05-01 07:12:00 UTC`, as databases
-    // and some app exports write it: every such row was dropped as an unreadable date).
-    let utc_word = |w: &str| {
-        s.len()
-            .checked_sub(w.len())
-            .filter(|&i| s.is_char_boundary(i) && s[i..].eq_ignore_ascii_case(w))
-            .map(|i| &s[..i])
-    };
-    let zulu = s
-        .strip_suffix(['Z', 'z'])
-        .or_else(|| utc_word(" UTC"))
-        .or_else(|| utc_word(" GMT"))
-        .map(|t| format!("{}+00:00", t.trim_end()));
+    let zulu = zulu(s);
     let with_offset = zulu.as_deref().unwrap_or(s);
     let has_time = format.contains("%H")
         || format.contains("%I")
@@ -2168,6 +2156,34 @@ pub fn parse_when(s: &str, opts: &CsvOptions) -> Option<When> {
         time,
         from_utc: false,
     })
+}
+
+/// `s` with `Z`, or the word `UTC` or `GMT` after the time (`2026-05-01 07:12:00 UTC`, as
+/// databases and some app exports write it: every such row was dropped as an unreadable date),
+/// written as the offset `+00:00`; `None` when it has neither.
+fn zulu(s: &str) -> Option<String> {
+    let utc_word = |w: &str| {
+        s.len()
+            .checked_sub(w.len())
+            .filter(|&i| s.is_char_boundary(i) && s[i..].eq_ignore_ascii_case(w))
+            .map(|i| &s[..i])
+    };
+    s.strip_suffix(['Z', 'z'])
+        .or_else(|| utc_word(" UTC"))
+        .or_else(|| utc_word(" GMT"))
+        .map(|t| format!("{}+00:00", t.trim_end()))
+}
+
+/// The instant a date-time written with its offset (or `Z`, `UTC`, `GMT`) names, in the
+/// program's format, ISO 8601 or the e-mail form; `None` for one without an offset.
+fn written_instant(s: &str, opts: &CsvOptions) -> Option<DateTime<FixedOffset>> {
+    let s = s.trim();
+    let zulu = zulu(s);
+    let with_offset = zulu.as_deref().unwrap_or(s);
+    std::iter::once(opts.date_format.as_str())
+        .chain(ISO_OFFSET)
+        .find_map(|f| DateTime::parse_from_str(with_offset, f).ok())
+        .or_else(|| DateTime::parse_from_rfc2822(s).ok())
 }
 
 /// A date in ISO 8601's basic format (`20260501`, ISO 8601-1:2019 §5.2.2.1), as some devices
@@ -2951,6 +2967,32 @@ impl Cells<'_> {
             time: Some(local.time()),
             from_utc: true,
         }
+    }
+
+    /// The instant `col`'s date-time names when it names one whatever the time zone: written
+    /// with its offset or as UTC (`Z`, `UTC`), Unix time, or a time under a header that says
+    /// UTC (`Date (UTC)`). `None` for a local time written without an offset.
+    pub fn instant(&self, col: &str) -> Option<DateTime<FixedOffset>> {
+        let s = self.text(col)?.trim();
+        if let Some(t) = written_instant(s, self.opts) {
+            return Some(t);
+        }
+        if self.unix_time(s).is_some() {
+            let (secs, millis) = match s.len() {
+                13 => (
+                    s.parse::<i64>().ok()?.div_euclid(1000),
+                    s.parse::<i64>().ok()?.rem_euclid(1000),
+                ),
+                _ => (s.parse::<i64>().ok()?, 0),
+            };
+            return DateTime::from_timestamp(secs, u32::try_from(millis).ok()? * 1_000_000)
+                .map(|t| t.fixed_offset());
+        }
+        if self.table.dates_in_utc {
+            let w = parse_when(s, self.opts)?;
+            return Some(w.date.and_time(w.time?).and_utc().fixed_offset());
+        }
+        None
     }
 
     /// A required number, with a message naming a decimal comma when there is one.

@@ -2,7 +2,7 @@
 //! MET range and the participants' local time zone. `program.yaml`'s `input:` section is
 //! checked against them here, and the participant readers (`crate::participant`) read by them.
 
-use chrono::{DateTime, FixedOffset, NaiveDateTime};
+use chrono::{DateTime, FixedOffset, LocalResult, NaiveDateTime, TimeZone};
 
 /// The participants' local time zone (`input.time_zone`): an IANA zone or a fixed offset.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -38,6 +38,16 @@ impl LocalZone {
         match self {
             LocalZone::Named(tz) => t.with_timezone(tz).naive_local(),
             LocalZone::Fixed(o) => t.with_timezone(o).naive_local(),
+        }
+    }
+
+    /// The instant a local date and time written without an offset stands for: one, two (an
+    /// hour that exists twice when the clocks go back, earlier offset first) or none (an hour
+    /// the clocks skip when they go forward), by the zone's rules (IANA tzdata via chrono-tz).
+    pub(crate) fn resolve(&self, t: NaiveDateTime) -> LocalResult<DateTime<FixedOffset>> {
+        match self {
+            LocalZone::Named(tz) => tz.from_local_datetime(&t).map(|x| x.fixed_offset()),
+            LocalZone::Fixed(o) => o.from_local_datetime(&t),
         }
     }
 

@@ -28,6 +28,8 @@ pub struct LineChart {
     pub bands: Vec<BandSeries>,
     pub spans: Vec<Span>,
     pub hlines: Vec<HLine>,
+    /// Vertical rules at dates (the day someone left the program), each labelled at its top.
+    pub vlines: Vec<VLine>,
     /// Text alternative for screen readers (SVG `<title>` and `aria-label`).
     pub alt_text: String,
 }
@@ -81,6 +83,17 @@ pub enum SpanKind {
 pub struct HLine {
     pub label: String,
     pub y: f64,
+}
+
+/// A vertical rule across the plot at one date, with a short label at its top (`left the
+/// program`) and its legend entry (`label`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct VLine {
+    /// The legend entry (`Left the program`).
+    pub label: String,
+    /// The words at the rule's top (`left the program`).
+    pub tag: String,
+    pub date: NaiveDate,
 }
 
 /// A bar chart of labelled values, with an optional target line.
@@ -379,6 +392,7 @@ fn legend_entries(c: &LineChart) -> usize {
             .iter()
             .filter(|h| !h.label.is_empty() && h.y.is_finite())
             .count()
+        + c.vlines.iter().filter(|v| !v.label.is_empty()).count()
         + spans.len()
 }
 
@@ -689,6 +703,35 @@ fn draw_line_chart<DB: DrawingBackend>(
         }
     }
 
+    // The day someone left: a rule the height of the plot, with its words at the top on the
+    // side with more room, so the weigh-ins after it are seen to be after it.
+    for v in c.vlines.iter().filter(|v| v.date >= x0 && v.date <= x1) {
+        let style = INK.stroke_width(2);
+        chart.draw_series(std::iter::once(PathElement::new(
+            vec![(v.date, y0), (v.date, y1)],
+            style,
+        )))?;
+        if !v.tag.is_empty() {
+            let right_half = (v.date - x0).num_days() * 2 > (x1 - x0).num_days();
+            let (dx, h) = if right_half {
+                (-5, HPos::Right)
+            } else {
+                (5, HPos::Left)
+            };
+            chart.draw_series(std::iter::once(
+                EmptyElement::at((v.date, y1))
+                    + Text::new(
+                        v.tag.clone(),
+                        (dx, 4),
+                        text(LABEL_SIZE - 1.0, INK).pos(Pos::new(h, VPos::Top)),
+                    ),
+            ))?;
+        }
+        if !v.label.is_empty() {
+            swatches.push((v.label.clone(), Swatch::Rule(style)));
+        }
+    }
+
     for (i, l) in c.lines.iter().enumerate() {
         let colour = LINE_COLOURS[i % LINE_COLOURS.len()];
         let mut all = l.points.clone();
@@ -766,6 +809,8 @@ enum Swatch {
     Line(ShapeStyle),
     /// A dashed line.
     Dashed(ShapeStyle),
+    /// A vertical rule.
+    Rule(ShapeStyle),
 }
 
 /// Draws legend entries in columns, top to bottom then left to right, filling `area` (the strip
@@ -797,6 +842,10 @@ fn draw_legend_strip<DB: DrawingBackend>(
                 area.draw(&PathElement::new(vec![(x, y), (x + 7, y)], style))?;
                 area.draw(&PathElement::new(vec![(x + 11, y), (x + 18, y)], style))?;
             }
+            Swatch::Rule(style) => area.draw(&PathElement::new(
+                vec![(x + 9, y - 7), (x + 9, y + 7)],
+                style,
+            ))?,
         }
         let size = LABEL_SIZE - 1.0;
         let max_px = (col_w - 30) as f32;
@@ -1027,6 +1076,7 @@ pub(crate) mod tests {
                 label: "goal 85 kg".into(),
                 y: 85.0,
             }],
+            vlines: vec![],
             alt_text: "Weight fell from 92 to 87.5 kg over 60 days & a plateau in March".into(),
         })
     }
@@ -1073,6 +1123,7 @@ pub(crate) mod tests {
                 }],
                 spans: vec![],
                 hlines: vec![],
+                vlines: vec![],
                 alt_text: String::new(),
             })
         };

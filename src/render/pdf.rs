@@ -1297,6 +1297,7 @@ pub(crate) mod tests {
                 label: "goal 85 kg".into(),
                 y: 85.0,
             }],
+            vlines: vec![],
             alt_text: "Weight fell from 94 to 88.5 kg over twelve weeks".into(),
         })
     }

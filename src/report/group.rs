@@ -653,6 +653,7 @@ fn fill(
                     label: "No change".into(),
                     y: 0.0,
                 }],
+                vlines: vec![],
                 alt_text: alt.clone(),
             }),
         ));

@@ -9,6 +9,7 @@ use crate::diag::{Diagnostic, Severity};
 use crate::modules::{BuiltinViews, ModuleResults, views::BUILTIN};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
+    VLine,
 };
 use chrono::{Datelike as _, NaiveDate};
 use cohortpress_metric_adherence::view::AdherenceView as AdherenceResults;
@@ -80,8 +81,11 @@ pub struct MilestoneView {
     pub label: String,
     /// Reached?
     pub reached: bool,
-    /// When, if reached.
+    /// When, if reached (or first seen at follow-up).
     pub reached_on: String,
+    /// First reached after leaving, on follow-up weigh-ins of someone who stopped the program:
+    /// not reached in the program (`reached` is false).
+    pub follow_up: bool,
 }
 
 /// Energy-balance section.
@@ -211,7 +215,11 @@ pub fn build(
         .and_then(|o| o.baseline_weight_kg)
         .filter(|_| !(no_loss && p.targets.weight_change_percent < 0.0))
         .map(|b| b * (1.0 + p.targets.weight_change_percent / 100.0));
-    let (weight_chart, weight_view) = weight_chart(&v, target_kg, units, plan, p.enrolled);
+    // Someone who stopped the program: the day they left is marked, and the weigh-ins after
+    // it (follow-up) are seen to be after it.
+    let left_follow_up = left.filter(|_| p.follow_up_weigh_ins());
+    let (weight_chart, weight_view) =
+        weight_chart(&v, target_kg, units, plan, p.enrolled, left_follow_up);
 
     // Someone who never logged activity read "Activity minutes per week 0 (target 150)" and
     // "Activity, beyond resting 0 kcal/day", as if they had done none (the module counts no log
@@ -233,12 +241,25 @@ pub fn build(
                 .round()
                 .max(1.0) as u64;
             let span = energy_window_words(window_days, p.enrolled, plan.period.to);
-            let (view, chart) = energy_section(
+            // Someone who stopped the program and weighed in after: the energy figures come
+            // from the records up to that day (`modules::run::PROGRAM_DAYS_ONLY`).
+            let follow_up_after = left.filter(|w| {
+                p.follow_up_weigh_ins()
+                    && *w >= plan.period.from
+                    && data.weights.iter().any(|x| x.date > *w)
+            });
+            let (mut view, chart) = energy_section(
                 e,
                 &span,
                 left.filter(|w| *w < plan.period.from),
                 unread == ActivityUnread::NoLog,
             );
+            if let Some(w) = follow_up_after {
+                view.explanation.push_str(&format!(
+                    " These figures use your records up to {}, the day you left: your food and activity logs end there, so your follow-up weigh-ins after it are not set against them.",
+                    fmt::date(w)
+                ));
+            }
             (Some(view), chart)
         }
         None => (None, None),
@@ -301,7 +322,14 @@ pub fn build(
             .outcomes
             .as_ref()
             .filter(|_| praise_loss)
-            .map(|o| milestones(&o.milestones, loss_goal, left.is_some()))
+            .map(|o| {
+                milestones(
+                    &o.milestones,
+                    loss_goal,
+                    left.is_some(),
+                    p.withdrew.filter(|_| p.follow_up_weigh_ins()),
+                )
+            })
             .unwrap_or_default(),
         weight_chart: weight_view,
         energy: energy_view,
@@ -455,17 +483,30 @@ fn bmi_text(bmi: f64, category: Option<BmiCategory>) -> String {
 /// (target reached, a BMI below the loss cut-off, a target that is not a loss) or the person
 /// has left the program (sample program, September 2026, SG-018, who left on 27 July: "5 %
 /// loss · not yet" in a report that sums up their records), only those already reached.
+///
+/// For someone who stopped the program (`follow_up_after`, their `withdrew` day), a milestone
+/// the trend first reached after that day, on follow-up weigh-ins, was not reached in the
+/// program: it is shown as seen at follow-up (with `withdrawal_reason: stopped_program`, a
+/// follow-up weigh-in on 20 Sep 2026 showed SG-018, who left on 27 Jul, as "5 % loss · reached
+/// 3 Aug 2026"). The group report's milestone shares are time-point changes (BOCF), which may
+/// use follow-up weigh-ins (intention to treat).
 fn milestones(
     rows: &[cohortpress_metric_outcomes::view::MilestoneRow],
     loss_goal: bool,
     left: bool,
+    follow_up_after: Option<NaiveDate>,
 ) -> Vec<MilestoneView> {
     rows.iter()
         .filter(|m| (loss_goal && !left) || m.reached)
-        .map(|m| MilestoneView {
-            label: format!("{} % loss", num_text(Some(m.threshold_percent))),
-            reached: m.reached,
-            reached_on: m.date_reached.map(fmt::date).unwrap_or_default(),
+        .map(|m| {
+            let follow_up =
+                m.reached && follow_up_after.is_some_and(|w| m.date_reached.is_some_and(|d| d > w));
+            MilestoneView {
+                label: format!("{} % loss", num_text(Some(m.threshold_percent))),
+                reached: m.reached && !follow_up,
+                reached_on: m.date_reached.map(fmt::date).unwrap_or_default(),
+                follow_up,
+            }
         })
         .collect()
 }
@@ -812,6 +853,7 @@ fn weight_chart(
     units: UnitSystem,
     plan: &Scope<'_>,
     enrolled: NaiveDate,
+    left_follow_up: Option<NaiveDate>,
 ) -> (Chart, ChartView) {
     let conv = |kg: f64| fmt::weight_value(kg, units);
     let unit = fmt::weight_unit(units);
@@ -971,6 +1013,22 @@ fn weight_chart(
             ));
         }
     }
+    let vlines: Vec<VLine> = left_follow_up
+        .map(|w| VLine {
+            // The date is in the description: with it the legend entry was cut short in the
+            // narrow drawing ("Left the program, 27 Jul 2…").
+            label: "Left the program".into(),
+            tag: "left the program".into(),
+            date: w,
+        })
+        .into_iter()
+        .collect();
+    if let Some(w) = left_follow_up {
+        alt.push_str(&format!(
+            " A vertical line marks {}, the day you left the program; weigh-ins after it are follow-up.",
+            fmt::date(w)
+        ));
+    }
     let chart = Chart::Line(LineChart {
         title: "Weight".into(),
         y_label: unit.into(),
@@ -978,6 +1036,7 @@ fn weight_chart(
         bands,
         spans,
         hlines,
+        vlines,
         alt_text: alt.clone(),
     });
     (
@@ -1252,6 +1311,7 @@ fn energy_section(
         bands: vec![],
         spans: vec![],
         hlines: vec![],
+        vlines: vec![],
         alt_text: alt,
     }));
     let view = EnergyView {
@@ -1526,15 +1586,56 @@ mod activity_unread_tests {
                 .collect::<Vec<_>>()
         };
         assert_eq!(
-            labels(milestones(&rows, true, true)),
+            labels(milestones(&rows, true, true, None)),
             [("3 % loss".to_string(), true)]
         );
         assert_eq!(
-            labels(milestones(&rows, true, false)),
+            labels(milestones(&rows, true, false, None)),
             [
                 ("3 % loss".to_string(), true),
                 ("5 % loss".to_string(), false),
                 ("7 % loss".to_string(), false)
+            ]
+        );
+    }
+
+    /// With `withdrawal_reason: stopped_program`, SG-018 (left 27 Jul 2026) and a follow-up
+    /// weigh-in on 20 Sep: the trend first reached 5 % on 3 Aug, and the report said "5 % loss ·
+    /// reached 3 Aug 2026", a milestone of the program. It is now seen at follow-up; one reached
+    /// on or before the day left stays reached; without a withdrawal date nothing changes.
+    #[test]
+    fn a_milestone_first_reached_after_stopping_the_program_is_seen_at_follow_up() {
+        use cohortpress_metric_outcomes::view::MilestoneRow;
+        let row = |p: f64, on: Option<&str>| MilestoneRow {
+            threshold_percent: p,
+            threshold_weight_kg: None,
+            reached: on.is_some(),
+            date_reached: on.map(|d| d.parse().unwrap()),
+        };
+        let rows = [
+            row(3.0, Some("2026-07-27")),
+            row(5.0, Some("2026-08-03")),
+            row(7.0, None),
+        ];
+        let left = NaiveDate::from_ymd_opt(2026, 7, 27);
+        let shown = |v: Vec<MilestoneView>| {
+            v.into_iter()
+                .map(|m| (m.label, m.reached, m.follow_up, m.reached_on))
+                .collect::<Vec<_>>()
+        };
+        let s = |x: &str| x.to_string();
+        assert_eq!(
+            shown(milestones(&rows, true, true, left)),
+            [
+                (s("3 % loss"), true, false, s("27 Jul 2026")),
+                (s("5 % loss"), false, true, s("3 Aug 2026")),
+            ]
+        );
+        assert_eq!(
+            shown(milestones(&rows, true, true, None)),
+            [
+                (s("3 % loss"), true, false, s("27 Jul 2026")),
+                (s("5 % loss"), true, false, s("3 Aug 2026")),
             ]
         );
     }

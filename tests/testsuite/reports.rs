@@ -1439,8 +1439,9 @@ fn group_value(shown: &serde_json::Value) -> Option<f64> {
 /// back to the scale had the follow-up weigh-in dropped, so the group report had no weight at
 /// the time point for them. With `withdrawal_reason: stopped_program` the follow-up weigh-in
 /// gives them one (a completer), retention still counts them as discontinued, and their own
-/// report says the later weigh-ins are follow-up only, with no advice. A follow-up weigh-in
-/// after withdrawn consent (the default) is still not read.
+/// report says the later weigh-ins are follow-up only, with no advice, shows a milestone first
+/// reached after leaving as seen at follow-up and marks the day they left on the weight chart.
+/// A follow-up weigh-in after withdrawn consent (the default) is still not read.
 #[test]
 fn a_follow_up_weigh_in_after_stopping_the_program_gives_a_weight_at_the_time_point() {
     // The sample with every whole-program count printed exactly (no split, cells from 3; its
@@ -1574,6 +1575,29 @@ fn a_follow_up_weigh_in_after_stopping_the_program_gives_a_weight_at_the_time_po
     let before_html = before.read("participants/SG-018.html");
     assert!(before_html.contains("this report shows your records up to then"));
     assert!(!before_html.contains("follow-up only"));
+    // The trend first reached 5 % loss on 3 Aug, between the last weigh-in in the program and
+    // the follow-up one: seen at follow-up, not reached in the program (it read "5 % loss ·
+    // reached 3 Aug 2026"). The 3 % reached before leaving stays reached.
+    assert!(
+        html.contains(
+            "<li class=\"reached\">3 % loss · reached 9 Jun 2026</li><li class=\"\">5 % loss · seen at follow-up 3 Aug 2026, after leaving</li>"
+        ),
+        "{html}"
+    );
+    assert!(!html.contains("5 % loss · reached"));
+    // The weight chart marks the day they left (both drawings: wide and narrow), with its
+    // legend entry and its description; the report without follow-up weigh-ins has none.
+    assert_eq!(
+        html.matches("\nleft the program\n</text>").count(),
+        2,
+        "{html}"
+    );
+    assert_eq!(html.matches("\nLeft the program\n</text>").count(), 2);
+    assert!(html.contains(
+        "A vertical line marks 27 Jul 2026, the day you left the program; weigh-ins after it are follow-up."
+    ));
+    assert!(!before_html.contains("left the program\n</text>"));
+    assert!(!before_html.contains("A vertical line marks"));
     // The methods box says what a stopped program does.
     let group = after.read("group/program.html");
     assert!(

@@ -2459,3 +2459,90 @@ fn median_without_is_the_median_of_the_rest() {
         assert_eq!(median_without(&sorted, 5000.0), Some(median(&mut all)));
     }
 }
+
+/// An activity given as start and end clock times across a daylight-saving change, with
+/// `input.time_zone: Europe/Berlin` (clocks forward 02:00 → 03:00 on 2026-03-29, back 03:00 →
+/// 02:00 on 2026-10-25; IANA tzdata): the span was end − start on one clock, an hour too long
+/// in spring and an hour too short in autumn. It is now the time between the two instants. A
+/// local time in the skipped hour is a warning at its cell (row dropped); one in the repeated
+/// hour is taken at the earlier offset (+02:00), with a warning at its cell saying so. Times
+/// written with their offsets are those instants. Without a zone the clock times are taken as
+/// written, as before.
+#[test]
+fn an_activity_across_a_daylight_saving_change_lasts_what_it_lasted_in_the_programs_zone() {
+    let text = "Activity,Start,End\n\
+                Walking,2026-03-29 01:30,2026-03-29 03:30\n\
+                Walking,2026-10-25 01:30,2026-10-25 03:30\n\
+                Walking,2026-03-29 02:30,2026-03-29 03:45\n\
+                Walking,2026-10-25 02:30,2026-10-25 03:30\n\
+                Walking,2026-10-25T02:30:00+01:00,2026-10-25T03:30:00+01:00\n\
+                Walking,2026-05-04 07:10,2026-05-04 07:52\n";
+    let read = |zone: Option<&str>| {
+        let opts = CsvOptions {
+            time_zone: zone.and_then(LocalZone::parse),
+            ..Default::default()
+        };
+        let mut diags = Vec::new();
+        let w = Window {
+            enrolled: Some(d(2026, 3, 1)),
+            ..window()
+        };
+        let a = parse_activity(text, &opts, &ctx("activity.csv"), &w, &mut diags).expect("usable");
+        let got: Vec<(NaiveDate, f64)> = a.iter().map(|x| (x.date, x.minutes)).collect();
+        (got, diags)
+    };
+    let (got, diags) = read(Some("Europe/Berlin"));
+    assert_eq!(
+        got,
+        [
+            (d(2026, 3, 29), 60.0),
+            (d(2026, 5, 4), 42.0),
+            (d(2026, 10, 25), 180.0),
+            (d(2026, 10, 25), 120.0),
+            (d(2026, 10, 25), 60.0),
+        ]
+    );
+    let at: Vec<(Option<u64>, Option<u64>, Option<&str>)> = diags
+        .iter()
+        .map(|x| (x.line, x.column, x.field.as_deref()))
+        .collect();
+    assert_eq!(
+        at,
+        [
+            (Some(4), Some(2), Some("date")),
+            (Some(5), Some(2), Some("date"))
+        ],
+        "{diags:#?}"
+    );
+    assert!(
+        diags
+            .iter()
+            .all(|x| x.file == "participants/P1/activity.csv")
+    );
+    assert_eq!(
+        diags[0].message,
+        "`2026-03-29 02:30` does not exist in Europe/Berlin (the clocks go forward an hour that night), so the activity's duration cannot be told; the row is dropped"
+    );
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("start `2026-03-29 02:30`, end `2026-03-29 03:45`")
+    );
+    assert_eq!(
+        diags[1].message,
+        "`2026-10-25 02:30` happens twice in Europe/Berlin (the clocks go back an hour that night); read as the first, at +02:00 (the earlier offset), not +01:00"
+    );
+    // Without a zone: end − start as written, the three DST rows included.
+    let (got, diags) = read(None);
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(
+        got,
+        [
+            (d(2026, 3, 29), 120.0),
+            (d(2026, 3, 29), 75.0),
+            (d(2026, 5, 4), 42.0),
+            (d(2026, 10, 25), 120.0),
+            (d(2026, 10, 25), 60.0),
+            (d(2026, 10, 25), 60.0),
+        ]
+    );
+}
