@@ -323,11 +323,19 @@ pub fn build(
             .as_ref()
             .filter(|_| praise_loss)
             .map(|o| {
+                let mut days: Vec<NaiveDate> = data
+                    .weights
+                    .iter()
+                    .map(|w| w.date)
+                    .filter(|d| *d <= plan.period.to)
+                    .collect();
+                days.sort_unstable();
                 milestones(
                     &o.milestones,
                     loss_goal,
                     left.is_some(),
                     p.withdrew.filter(|_| p.follow_up_weigh_ins()),
+                    &days,
                 )
             })
             .unwrap_or_default(),
@@ -490,21 +498,34 @@ fn bmi_text(bmi: f64, category: Option<BmiCategory>) -> String {
 /// follow-up weigh-in on 20 Sep 2026 showed SG-018, who left on 27 Jul, as "5 % loss · reached
 /// 3 Aug 2026"). The group report's milestone shares are time-point changes (BOCF), which may
 /// use follow-up weigh-ins (intention to treat).
+///
+/// The date of a milestone seen at follow-up is the first weigh-in on or after the day the
+/// trend crossed it (`weigh_in_days`, sorted): between leaving and a follow-up visit there are
+/// no weigh-ins, and the trend's crossing day is a point on a line drawn across the gap ("seen
+/// at follow-up 3 Aug" for a follow-up weigh-in on 20 Sep).
 fn milestones(
     rows: &[cohortpress_metric_outcomes::view::MilestoneRow],
     loss_goal: bool,
     left: bool,
     follow_up_after: Option<NaiveDate>,
+    weigh_in_days: &[NaiveDate],
 ) -> Vec<MilestoneView> {
     rows.iter()
         .filter(|m| (loss_goal && !left) || m.reached)
         .map(|m| {
             let follow_up =
                 m.reached && follow_up_after.is_some_and(|w| m.date_reached.is_some_and(|d| d > w));
+            let on = match m.date_reached {
+                Some(d) if follow_up => weigh_in_days
+                    .get(weigh_in_days.partition_point(|&x| x < d))
+                    .copied()
+                    .or(Some(d)),
+                d => d,
+            };
             MilestoneView {
                 label: format!("{} % loss", num_text(Some(m.threshold_percent))),
                 reached: m.reached && !follow_up,
-                reached_on: m.date_reached.map(fmt::date).unwrap_or_default(),
+                reached_on: on.map(fmt::date).unwrap_or_default(),
                 follow_up,
             }
         })
@@ -1586,11 +1607,11 @@ mod activity_unread_tests {
                 .collect::<Vec<_>>()
         };
         assert_eq!(
-            labels(milestones(&rows, true, true, None)),
+            labels(milestones(&rows, true, true, None, &[])),
             [("3 % loss".to_string(), true)]
         );
         assert_eq!(
-            labels(milestones(&rows, true, false, None)),
+            labels(milestones(&rows, true, false, None, &[])),
             [
                 ("3 % loss".to_string(), true),
                 ("5 % loss".to_string(), false),
@@ -1601,8 +1622,10 @@ mod activity_unread_tests {
 
     /// With `withdrawal_reason: stopped_program`, SG-018 (left 27 Jul 2026) and a follow-up
     /// weigh-in on 20 Sep: the trend first reached 5 % on 3 Aug, and the report said "5 % loss ·
-    /// reached 3 Aug 2026", a milestone of the program. It is now seen at follow-up; one reached
-    /// on or before the day left stays reached; without a withdrawal date nothing changes.
+    /// reached 3 Aug 2026", a milestone of the program. It is now seen at follow-up, on the
+    /// follow-up weigh-in's day (3 Aug is only where the trend's line across the gap crosses
+    /// 5 %); one reached on or before the day left stays reached; without a withdrawal date
+    /// nothing changes.
     #[test]
     fn a_milestone_first_reached_after_stopping_the_program_is_seen_at_follow_up() {
         use cohortpress_metric_outcomes::view::MilestoneRow;
@@ -1618,6 +1641,12 @@ mod activity_unread_tests {
             row(7.0, None),
         ];
         let left = NaiveDate::from_ymd_opt(2026, 7, 27);
+        // Weigh-ins up to the day left, then a follow-up visit on 20 Sep: the trend crosses
+        // 5 % on 3 Aug, in the gap, and the follow-up weigh-in is where it was seen.
+        let days: Vec<NaiveDate> = ["2026-07-20", "2026-07-27", "2026-09-20"]
+            .iter()
+            .map(|d| d.parse().unwrap())
+            .collect();
         let shown = |v: Vec<MilestoneView>| {
             v.into_iter()
                 .map(|m| (m.label, m.reached, m.follow_up, m.reached_on))
@@ -1625,14 +1654,14 @@ mod activity_unread_tests {
         };
         let s = |x: &str| x.to_string();
         assert_eq!(
-            shown(milestones(&rows, true, true, left)),
+            shown(milestones(&rows, true, true, left, &days)),
             [
                 (s("3 % loss"), true, false, s("27 Jul 2026")),
-                (s("5 % loss"), false, true, s("3 Aug 2026")),
+                (s("5 % loss"), false, true, s("20 Sep 2026")),
             ]
         );
         assert_eq!(
-            shown(milestones(&rows, true, true, None)),
+            shown(milestones(&rows, true, true, None, &days)),
             [
                 (s("3 % loss"), true, false, s("27 Jul 2026")),
                 (s("5 % loss"), true, false, s("3 Aug 2026")),

@@ -1576,11 +1576,12 @@ fn a_follow_up_weigh_in_after_stopping_the_program_gives_a_weight_at_the_time_po
     assert!(before_html.contains("this report shows your records up to then"));
     assert!(!before_html.contains("follow-up only"));
     // The trend first reached 5 % loss on 3 Aug, between the last weigh-in in the program and
-    // the follow-up one: seen at follow-up, not reached in the program (it read "5 % loss ·
-    // reached 3 Aug 2026"). The 3 % reached before leaving stays reached.
+    // the follow-up one on 20 Sep: seen at that follow-up, not reached in the program (it read
+    // "5 % loss · reached 3 Aug 2026", then "seen at follow-up 3 Aug", a day nobody weighed
+    // in). The 3 % reached before leaving stays reached.
     assert!(
         html.contains(
-            "<li class=\"reached\">3 % loss · reached 9 Jun 2026</li><li class=\"\">5 % loss · seen at follow-up 3 Aug 2026, after leaving</li>"
+            "<li class=\"reached\">3 % loss · reached 9 Jun 2026</li><li class=\"\">5 % loss · seen at follow-up 20 Sep 2026, after leaving</li>"
         ),
         "{html}"
     );
