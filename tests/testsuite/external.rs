@@ -502,6 +502,29 @@ fn the_listing_shows_a_programs_external_modules() {
     );
 }
 
+/// Before: `cohortpress modules PROGRAM` printed an external module's spec as it came, so a
+/// description holding `ESC ]0;…BEL ESC [2J` set the terminal's title and cleared the screen.
+/// Every other message on the terminal shows control characters escaped.
+#[test]
+fn a_modules_spec_reaches_the_terminal_escaped() {
+    let p = program(&fake("esc", "escapes", None, 20.0));
+    let text = cohortpress::modules::describe_modules(Some(&p));
+    assert!(
+        !text.contains('\u{1b}') && !text.contains('\u{7}') && !text.contains('\u{202e}'),
+        "{text}"
+    );
+    let trap = r"\u{1b}]0;pwned\u{7}\u{1b}[2J\u{202e}";
+    for line in [
+        format!("\nesc 0.0.1{trap} (command: "),
+        format!("\n  test module {trap} (escapes)\n"),
+        format!("\n    label: text, default x{trap} u{trap}, one of: x{trap}, y\n"),
+        format!("\n        a setting {trap}\n"),
+        format!("\n    weigh_ins (scalar, kg{trap})\n        count {trap}\n"),
+    ] {
+        assert!(text.contains(&line), "{line:?} not in\n{text}");
+    }
+}
+
 // ---------------------------------------------------------------------------------------------
 // Golden test of the wire format.
 //
