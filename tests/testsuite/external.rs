@@ -324,6 +324,19 @@ fn runaway_output_is_cut_off_and_contained() {
     );
 }
 
+/// Before: a table of 700,000 rows (12 MiB of output, under the 16 MiB limit) was accepted, and
+/// every value was held until the tidy files were written: 1.9 GB for two participants, so a
+/// module answering so for a whole cohort could exhaust memory and end the run for everyone.
+#[test]
+fn a_result_with_too_many_table_cells_is_refused_and_contained() {
+    assert_eq!(
+        contained("rows", 20.0),
+        "external module: it answered, but its `result` failed validation: its tables and \
+         series hold 100,002 values (cells and points) for one participant; at most 100,000 are \
+         accepted"
+    );
+}
+
 #[test]
 fn a_module_past_its_timeout_is_stopped_and_contained() {
     let m = contained("sleep", 2.0);
