@@ -237,6 +237,20 @@ fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSu
             let rel = partial::cache_path(id);
             let bytes = crate::limits::read_input(&dir.join(&rel))
                 .map_err(|e| RunError::Output(format!("{}: {e}", dir.join(&rel).display())))?;
+            // The partial result is what the group report and the tidy metrics are built from:
+            // it must be the file its shard wrote, as the reports must be (below), or the merged
+            // output silently differs from a whole run's.
+            let written = shard
+                .outputs
+                .iter()
+                .find(|f| f.path == rel)
+                .map(|f| f.blake3.as_str());
+            if written != Some(blake3::hash(&bytes).to_hex().as_str()) {
+                return Err(RunError::Output(format!(
+                    "{}: the file changed after its shard wrote it",
+                    dir.join(&rel).display()
+                )));
+            }
             let rec = ParticipantRecord::from_bytes(&bytes)
                 .filter(|r| &r.id == id && r.run_key == key_hash)
                 .ok_or_else(|| {

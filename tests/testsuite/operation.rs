@@ -732,6 +732,48 @@ fn three_shards_merged_equal_a_single_run() {
     assert_eq!(std::fs::read(&shard_json).unwrap(), before);
 }
 
+/// Before: `merge` checked each report against the hash its shard recorded but took the partial
+/// results (`cache/ID.json`, what the group report and tidy metrics are built from) as found, so
+/// an edited one was merged with exit 0 and the output differed from a single run's. Now it is
+/// refused as an edited report is, and nothing is written.
+#[test]
+fn a_partial_result_edited_after_its_shard_ran_is_refused_by_merge() {
+    let t = ProgramTest::demo(6);
+    let shard_dirs: Vec<String> = (1..=2)
+        .map(|k| {
+            let d = out(&t, &format!("shard{k}"));
+            let r = run(&t, &d, &["--shard", &format!("{k}/2")]);
+            assert_eq!(r.code, 0, "{}", r.stderr);
+            d
+        })
+        .collect();
+    let shard: serde_json::Value = serde_json::from_slice(
+        &std::fs::read(Path::new(&shard_dirs[0]).join("shard.json")).unwrap(),
+    )
+    .unwrap();
+    let id = shard["participants"][0].as_str().unwrap();
+    let cache = Path::new(&shard_dirs[0]).join(format!("cache/{id}.json"));
+    let mut rec: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(&cache).unwrap()).unwrap();
+    rec["summary"]["baseline_kg"] = "150.0".into();
+    std::fs::write(&cache, serde_json::to_vec(&rec).unwrap()).unwrap();
+
+    let merged = out(&t, "merged");
+    let mut args = vec!["merge", "{dir}", "--out", merged.as_str()];
+    args.extend(shard_dirs.iter().map(String::as_str));
+    let m = t.run(&args);
+    assert_eq!(m.code, 6, "{}", m.stderr);
+    assert!(
+        m.stderr.contains(&format!(
+            "{}: the file changed after its shard wrote it",
+            cache.display()
+        )),
+        "{}",
+        m.stderr
+    );
+    assert!(!Path::new(&merged).exists());
+}
+
 /// `examples/slurm-array.sh` as Slurm would run it (eight array tasks, then the merge job, with
 /// the variables Slurm sets), on the real binary: the merged output equals a single run.
 #[test]
