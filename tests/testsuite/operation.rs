@@ -637,6 +637,33 @@ fn an_incremental_run_recomputes_a_record_of_the_older_format() {
     assert_eq!(rec["failures"], serde_json::json!([]));
 }
 
+/// Before: `--incremental` checked the previous reports against their hashes but reused a
+/// partial result (`cache/ID.json`, what the group report and tidy metrics are built from) as
+/// found, so an edited one was carried into the new output and the run was no longer equal to a
+/// full one. Now a partial result that is not as the previous manifest lists it is recomputed.
+#[test]
+fn an_incremental_run_recomputes_a_partial_result_edited_since() {
+    let t = ProgramTest::demo(3);
+    let full = out(&t, "full");
+    assert_eq!(run(&t, &full, &[]).code, 0);
+    let inc = out(&t, "inc");
+    assert_eq!(run(&t, &inc, &[]).code, 0);
+    let cache = Path::new(&inc).join("cache/SG-002.json");
+    let mut rec: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(&cache).unwrap()).unwrap();
+    rec["summary"]["baseline_kg"] = "150.0".into();
+    rec["tidy"]["scalars"] = serde_json::json!([]);
+    std::fs::write(&cache, serde_json::to_vec_pretty(&rec).unwrap()).unwrap();
+    let r = run(&t, &inc, &["--incremental"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("2 participants reused, 1 recomputed"),
+        "{}",
+        r.stderr
+    );
+    assert_same_tree(&full, &inc);
+}
+
 #[test]
 fn three_shards_merged_equal_a_single_run() {
     let t = ProgramTest::demo(12);
