@@ -23,6 +23,14 @@ pub const MAX_YAML_ALIASES: u64 = 1_000;
 /// Most YAML events once every alias is expanded (what the deserializer really walks).
 pub const MAX_YAML_EXPANDED: u64 = 200_000;
 
+/// Most table cells and series points, together, in one external module's `result` for one
+/// participant. Each value is held, with its names, until the run's tidy files are written
+/// (about 400 bytes in all; measured: 700,000-row tables from a module that fits its 16 MiB
+/// of output took 1.9 GB for two participants), so without a ceiling a module could exhaust
+/// memory for the whole run. A daily series over the longest program (3,653 days) and a table of
+/// 25 figures per day still fit.
+pub const MAX_MODULE_RESULT_VALUES: usize = 100_000;
+
 /// Most data rows read from one CSV file (over 130 years of daily rows; a file over it is
 /// refused, the participant left out, and reading stops there).
 pub const MAX_CSV_ROWS: usize = 50_000;

@@ -228,13 +228,25 @@ impl Columns {
         for (m, tx) in &t.texts {
             self.texts
                 .insert((self.rank(m), m.clone(), tx.name.clone()));
-            if !tx.value.is_empty()
-                && chrono::NaiveDate::parse_from_str(&tx.value, "%Y-%m-%d").is_err()
-            {
+            if !tx.value.is_empty() && !is_iso_day(&tx.value) {
                 self.not_dates.insert((m.clone(), tx.name.clone()));
             }
         }
     }
+}
+
+/// Whether `s` is a day written as a Table Schema `date` in its default format is: ISO 8601
+/// `YYYY-MM-DD`, four digits, two and two (Frictionless Table Schema, `date`, format
+/// `default`). chrono alone also reads `2027-3-1` and `+2027-03-01`, which a reader of the
+/// descriptor refuses as dates.
+fn is_iso_day(s: &str) -> bool {
+    let b = s.as_bytes();
+    b.len() == 10
+        && b.iter().enumerate().all(|(i, c)| match i {
+            4 | 7 => *c == b'-',
+            _ => c.is_ascii_digit(),
+        })
+        && chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d").is_ok()
 }
 
 /// The largest whole number an `f64` holds exactly (2^53): beyond it a written integer could
@@ -921,4 +933,59 @@ struct DpConstraints {
     minimum: Option<i64>,
     #[serde(rename = "enum", skip_serializing_if = "Option::is_none")]
     r#enum: Option<Vec<&'static str>>,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use cohortpress_metric_api::TextValue;
+
+    /// Before: an external module's text output declared with the unit `date` was typed `date`
+    /// in datapackage.json when one participant's value was `2027-3-1` or `+2027-03-01`
+    /// (written `'+2027-03-01`): chrono reads both, a Table Schema reader refuses them.
+    #[test]
+    fn only_iso_days_keep_a_text_column_typed_date() {
+        let written = |value: &str| {
+            let mut c = Columns::new(vec!["dt".into()]);
+            c.observe(&TidyParticipant {
+                participant_id: "XP-01".into(),
+                enrolled: "2027-03-01".into(),
+                withdrew: None,
+                withdrawal_reason: None,
+                started: true,
+                completer: true,
+                groups: BTreeMap::new(),
+                scalars: vec![],
+                texts: vec![(
+                    "dt".into(),
+                    TextValue {
+                        name: "day".into(),
+                        value: value.into(),
+                        label: String::new(),
+                    },
+                )],
+                weekly_rows: vec![],
+                table_rows: vec![],
+                flags: vec![],
+                failures: vec![],
+            });
+            !c.not_dates.contains(&("dt".into(), "day".into()))
+        };
+        for day in ["2027-03-01", "0001-01-01", "9999-12-31", "2028-02-29", ""] {
+            assert!(written(day), "{day:?}");
+        }
+        for not_a_day in [
+            "2027-3-1",
+            "2027-03-1",
+            "+2027-03-01",
+            "02027-03-01",
+            " 2027-03-01",
+            "2027-03-01 ",
+            "2027-02-30",
+            "2027-03-01T00:00",
+            "2027/03/01",
+        ] {
+            assert!(!written(not_a_day), "{not_a_day:?}");
+        }
+    }
 }

@@ -2,6 +2,7 @@
 
 use super::external::{DEFAULT_TIMEOUT_SECONDS, ExternalModule, Launch, VersionCheck};
 use super::registry::builtin_modules;
+use crate::diag::printable;
 use crate::program::Program;
 use cohortpress_metric_api::{ModuleSpec, SettingKind, SettingSpec};
 use std::fmt::Write as _;
@@ -43,7 +44,11 @@ pub fn describe_modules(program: Option<&Program>) -> String {
         for def in externals {
             let command = def.command.as_deref().unwrap_or_default();
             let seconds = def.timeout_seconds.unwrap_or(DEFAULT_TIMEOUT_SECONDS);
-            let shown = command.join(" ");
+            // The command is shown as program.yaml gives it, and all the rest of an external
+            // module's listing is its own text: control characters are shown escaped, as in every
+            // message on the terminal (`diag::printable`), so a spec cannot clear the screen or
+            // set the window title.
+            let shown = printable(&command.join(" ")).into_owned();
             let described = Launch::new(
                 &def.id,
                 command,
@@ -56,7 +61,7 @@ pub fn describe_modules(program: Option<&Program>) -> String {
                 Ok((module, version)) => {
                     let mut note = format!(" (command: {shown})");
                     if let VersionCheck::MinorDiffers(w) = version {
-                        note.push_str(&format!("\n  warning: {w}"));
+                        note.push_str(&format!("\n  warning: {}", printable(&w)));
                     }
                     write_spec(
                         &mut s,
@@ -67,8 +72,9 @@ pub fn describe_modules(program: Option<&Program>) -> String {
                 Err(e) => {
                     let _ = write!(
                         s,
-                        "\n{} (command: {shown})\n  could not be described: {e}\n",
-                        def.id
+                        "\n{} (command: {shown})\n  could not be described: {}\n",
+                        def.id,
+                        printable(&e)
                     );
                 }
             }
@@ -78,12 +84,17 @@ pub fn describe_modules(program: Option<&Program>) -> String {
 }
 
 fn write_spec(s: &mut String, spec: &ModuleSpec, note: &str) {
-    let _ = writeln!(s, "\n{} {}{note}", spec.id, spec.version);
+    let _ = writeln!(
+        s,
+        "\n{} {}{note}",
+        printable(&spec.id),
+        printable(&spec.version)
+    );
     wrap_into(s, &spec.description, "  ");
     let requires = if spec.requires.is_empty() {
         "nothing".to_string()
     } else {
-        spec.requires.join(", ")
+        printable(&spec.requires.join(", ")).into_owned()
     };
     let _ = writeln!(s, "  requires: {requires}");
     if spec.settings.is_empty() {
@@ -91,7 +102,12 @@ fn write_spec(s: &mut String, spec: &ModuleSpec, note: &str) {
     } else {
         s.push_str("  settings (under `with:`):\n");
         for set in &spec.settings {
-            let _ = writeln!(s, "    {}: {}", set.name, setting_summary(set));
+            let _ = writeln!(
+                s,
+                "    {}: {}",
+                printable(&set.name),
+                printable(&setting_summary(set))
+            );
             wrap_into(s, &set.description, "        ");
         }
     }
@@ -103,9 +119,9 @@ fn write_spec(s: &mut String, spec: &ModuleSpec, note: &str) {
             let unit = if o.unit.is_empty() {
                 String::new()
             } else {
-                format!(", {}", o.unit)
+                format!(", {}", printable(&o.unit))
             };
-            let _ = writeln!(s, "    {} ({}{unit})", o.name, o.kind);
+            let _ = writeln!(s, "    {} ({}{unit})", printable(&o.name), o.kind);
             wrap_into(s, &o.description, "        ");
         }
     }
@@ -152,7 +168,7 @@ fn wrap_into(s: &mut String, text: &str, indent: &str) {
         if !line.is_empty() {
             line.push(' ');
         }
-        line.push_str(word);
+        line.push_str(&printable(word));
     }
     if !line.is_empty() {
         let _ = writeln!(s, "{indent}{line}");

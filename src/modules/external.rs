@@ -941,6 +941,21 @@ pub fn validate_output(out: &ModuleOutput) -> Result<(), String> {
         }
         Ok(())
     }
+    let values: usize = out
+        .tables
+        .iter()
+        .flat_map(|t| &t.rows)
+        .map(Vec::len)
+        .sum::<usize>()
+        + out.series.iter().map(|s| s.points.len()).sum::<usize>();
+    if values > crate::limits::MAX_MODULE_RESULT_VALUES {
+        return Err(format!(
+            "its tables and series hold {} values (cells and points) for one participant; at \
+             most {} are accepted",
+            crate::diag::thousands(values),
+            crate::diag::thousands(crate::limits::MAX_MODULE_RESULT_VALUES)
+        ));
+    }
     names("scalar", out.scalars.iter().map(|s| s.name.as_str()))?;
     names("text", out.texts.iter().map(|t| t.name.as_str()))?;
     names("series", out.series.iter().map(|s| s.name.as_str()))?;
@@ -1137,6 +1152,43 @@ mod tests {
         );
         assert!(validate_output(&out("daily")).is_err());
         assert_eq!(validate_output(&out("irregular")), Ok(()));
+    }
+
+    /// A result may hold 100,000 table cells and series points in all, and not one more.
+    #[test]
+    fn a_result_may_hold_up_to_the_ceiling_of_values() {
+        use crate::limits::MAX_MODULE_RESULT_VALUES;
+        use cohortpress_metric_api::{Cell, Column, Point, Series, Table};
+        let table = |rows: usize| Table {
+            name: "t".into(),
+            label: "T".into(),
+            columns: vec![Column::new("a", "", "A")],
+            rows: vec![vec![Cell::Number(1.0)]; rows],
+        };
+        let point = Point {
+            date: chrono::NaiveDate::from_ymd_opt(2027, 3, 1).unwrap(),
+            value: 1.0,
+            lower: None,
+            upper: None,
+        };
+        let mut out = ModuleOutput {
+            tables: vec![table(MAX_MODULE_RESULT_VALUES - 10)],
+            series: vec![Series {
+                name: "s".into(),
+                unit: String::new(),
+                step: "irregular".into(),
+                label: "S".into(),
+                points: vec![point; 10],
+            }],
+            ..Default::default()
+        };
+        assert_eq!(validate_output(&out), Ok(()));
+        out.tables = vec![table(MAX_MODULE_RESULT_VALUES - 9)];
+        assert_eq!(
+            validate_output(&out).unwrap_err(),
+            "its tables and series hold 100,001 values (cells and points) for one participant; \
+             at most 100,000 are accepted"
+        );
     }
 
     #[test]

@@ -25,6 +25,7 @@ use crate::tidy;
 use cohortpress_metric_api::ParticipantData;
 use cohortpress_metric_trend::view::Status;
 use rayon::prelude::*;
+use std::collections::BTreeMap;
 use std::path::Path;
 use std::sync::Mutex;
 use std::time::Instant;
@@ -123,6 +124,11 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
         .build()
         .map_err(|e| RunError::Output(format!("cannot start worker threads: {e}")))?;
     let key_hash = plan.key.hash();
+    let written = if plan.incremental {
+        written_partials(staging.final_dir())
+    } else {
+        BTreeMap::new()
+    };
     // One person's weigh-ins in two folders, found before any report is written so that both
     // reports say so; over every folder of the program, so `--only` and each shard find the
     // same copies as a whole run.
@@ -141,7 +147,15 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
                     .filter(|d| d.participant.as_deref() == Some(dir.id.as_str()))
                     .collect();
                 let reused = if plan.incremental {
-                    reuse_participant(plan, &key_hash, &staging, dir, &names, &own_copies)?
+                    reuse_participant(
+                        plan,
+                        &key_hash,
+                        &staging,
+                        dir,
+                        &names,
+                        &own_copies,
+                        &written,
+                    )?
                 } else {
                     None
                 };
@@ -561,9 +575,33 @@ fn published_period(out_dir: &Path, program_id: &str) -> Option<(String, String)
     })?
 }
 
+/// The partial results (`cache/ID.json`) of the previous output in `out_dir` and their blake3
+/// hashes, as its `manifest.json` (a shard's: its `shard.json`) lists them: a partial result is
+/// reused only as it was written. Empty when neither reads.
+fn written_partials(out_dir: &Path) -> BTreeMap<String, String> {
+    let listed = ["manifest.json", shard::SHARD_FILE]
+        .iter()
+        .find_map(|name| {
+            let bytes = crate::limits::read_input(&out_dir.join(name)).ok()?;
+            let v: serde_json::Value = serde_json::from_slice(&bytes).ok()?;
+            v["outputs"].as_array().cloned()
+        });
+    listed
+        .unwrap_or_default()
+        .iter()
+        .filter_map(|f| {
+            let path = f["path"].as_str()?;
+            let hash = f["blake3"].as_str()?;
+            path.starts_with(&format!("{}/", partial::CACHE_DIR))
+                .then(|| (path.to_string(), hash.to_string()))
+        })
+        .collect()
+}
+
 /// `--incremental`: the participant's previous record and reports, copied into staging, when
 /// nothing they depend on changed: the run key, the folder listing and every input file's
-/// hash, and the previous report files are intact. `None` means recompute.
+/// hash, and the previous partial result and report files are intact (`written`: the partial
+/// results the previous output's manifest lists). `None` means recompute.
 fn reuse_participant(
     plan: &RunPlan,
     key_hash: &str,
@@ -571,6 +609,7 @@ fn reuse_participant(
     dir: &ParticipantDir,
     names: &[String],
     own_copies: &[&Diagnostic],
+    written: &BTreeMap<String, String>,
 ) -> Result<Option<ParticipantRecord>, RunError> {
     let prev = staging.final_dir();
     let rel = partial::cache_path(&dir.id);
@@ -579,6 +618,10 @@ fn reuse_participant(
     let Ok(bytes) = crate::limits::read_input(&prev.join(&rel)) else {
         return Ok(None);
     };
+    // Edited since it was written (its figures feed the group report and the tidy metrics).
+    if written.get(&rel).map(String::as_str) != Some(blake3::hash(&bytes).to_hex().as_str()) {
+        return Ok(None);
+    }
     let Some(rec) = ParticipantRecord::from_bytes(&bytes) else {
         return Ok(None);
     };

@@ -15,6 +15,7 @@
 use super::partial::{self, DiagRecord, ParticipantRecord, RunKey};
 use super::{Blame, MergeOptions, RunError, RunPlan, RunSummary, execute};
 use crate::diag::Diagnostic;
+use crate::participant;
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 use std::str::FromStr;
@@ -226,8 +227,65 @@ pub fn merge_shards(opts: &MergeOptions) -> Result<(RunSummary, usize, PathBuf),
     Ok((summary, shards.len(), plan.out_dir))
 }
 
+/// The shards must cover the participant folders as they are now, with the same files: a
+/// folder added or removed since (a participant who joined, or who withdrew consent and whose
+/// data were deleted), or a file changed, would otherwise make the merged output differ from
+/// what a single run gives today, without a word. Returns the folders, by id.
+fn participants_unchanged(
+    plan: &RunPlan,
+    shards: &[ShardFile],
+) -> Result<std::collections::BTreeMap<String, participant::ParticipantDir>, RunError> {
+    use std::collections::BTreeSet;
+    let (now, _) = execute::select_participants(plan)?;
+    let now_ids: BTreeSet<&str> = now.iter().map(|d| d.id.as_str()).collect();
+    let ran: BTreeSet<&str> = shards
+        .iter()
+        .flat_map(|s| s.participants.iter().map(String::as_str))
+        .collect();
+    if now_ids != ran {
+        let list = |a: &BTreeSet<&str>, b: &BTreeSet<&str>| {
+            a.difference(b).copied().collect::<Vec<_>>().join(", ")
+        };
+        return Err(merge_error(format!(
+            "the participant folders changed since the shards ran (in no shard: [{}]; in a \
+             shard, but no longer in the program: [{}]); run the shards again",
+            list(&now_ids, &ran),
+            list(&ran, &now_ids)
+        )));
+    }
+    Ok(now.into_iter().map(|d| (d.id.clone(), d)).collect())
+}
+
+/// A participant's folder listing and input files as its shard read them (see
+/// [`participants_unchanged`]).
+fn inputs_unchanged(
+    plan: &RunPlan,
+    dir: &participant::ParticipantDir,
+    rec: &ParticipantRecord,
+) -> Result<(), RunError> {
+    let changed = if participant::open(dir).names() != rec.listing {
+        Some("the list of files in the folder".to_string())
+    } else {
+        rec.files
+            .iter()
+            .find(|f| {
+                crate::limits::read_input(&plan.program.root.join(&f.path))
+                    .map_or(true, |b| blake3::hash(&b).to_hex().as_str() != f.blake3)
+            })
+            .map(|f| f.path.clone())
+    };
+    match changed {
+        Some(what) => Err(merge_error(format!(
+            "participant {}: {what} changed since the shards ran; run the shards again",
+            dir.id
+        ))),
+        None => Ok(()),
+    }
+}
+
 fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSummary, RunError> {
     execute::check_ledger_folder(plan)?;
+    let folders = participants_unchanged(plan, shards)?;
     let staging = plan.begin_staging()?;
     let key_hash = plan.key.hash();
     let mut records: Vec<ParticipantRecord> = Vec::new();
@@ -237,6 +295,20 @@ fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSu
             let rel = partial::cache_path(id);
             let bytes = crate::limits::read_input(&dir.join(&rel))
                 .map_err(|e| RunError::Output(format!("{}: {e}", dir.join(&rel).display())))?;
+            // The partial result is what the group report and the tidy metrics are built from:
+            // it must be the file its shard wrote, as the reports must be (below), or the merged
+            // output silently differs from a whole run's.
+            let written = shard
+                .outputs
+                .iter()
+                .find(|f| f.path == rel)
+                .map(|f| f.blake3.as_str());
+            if written != Some(blake3::hash(&bytes).to_hex().as_str()) {
+                return Err(RunError::Output(format!(
+                    "{}: the file changed after its shard wrote it",
+                    dir.join(&rel).display()
+                )));
+            }
             let rec = ParticipantRecord::from_bytes(&bytes)
                 .filter(|r| &r.id == id && r.run_key == key_hash)
                 .ok_or_else(|| {
@@ -245,6 +317,9 @@ fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSu
                         dir.join(&rel).display()
                     ))
                 })?;
+            if let Some(folder) = folders.get(id) {
+                inputs_unchanged(plan, folder, &rec)?;
+            }
             for f in &rec.reports {
                 let b = crate::limits::read_input(&dir.join(&f.path)).map_err(|e| {
                     RunError::Output(format!("{}: {e}", dir.join(&f.path).display()))

@@ -83,7 +83,19 @@ pub fn check_package(metrics: &Path) -> Vec<String> {
                     "integer" => cell
                         .parse::<i64>()
                         .is_ok_and(|v| c["minimum"].as_i64().is_none_or(|m| v >= m)),
-                    "date" => chrono::NaiveDate::parse_from_str(cell, "%Y-%m-%d").is_ok(),
+                    // Table Schema's default date format: YYYY-MM-DD exactly (chrono alone
+                    // also reads `2027-3-1`).
+                    "date" => {
+                        cell.len() == 10
+                            && chrono::NaiveDate::parse_from_str(cell, "%Y-%m-%d").is_ok()
+                            && cell.bytes().enumerate().all(|(i, c)| {
+                                if i == 4 || i == 7 {
+                                    c == b'-'
+                                } else {
+                                    c.is_ascii_digit()
+                                }
+                            })
+                    }
                     // The values the specification reads by default (trueValues, falseValues).
                     "boolean" => ["true", "True", "TRUE", "1", "false", "False", "FALSE", "0"]
                         .contains(&cell),

@@ -324,6 +324,19 @@ fn runaway_output_is_cut_off_and_contained() {
     );
 }
 
+/// Before: a table of 700,000 rows (12 MiB of output, under the 16 MiB limit) was accepted, and
+/// every value was held until the tidy files were written: 1.9 GB for two participants, so a
+/// module answering so for a whole cohort could exhaust memory and end the run for everyone.
+#[test]
+fn a_result_with_too_many_table_cells_is_refused_and_contained() {
+    assert_eq!(
+        contained("rows", 20.0),
+        "external module: it answered, but its `result` failed validation: its tables and \
+         series hold 100,002 values (cells and points) for one participant; at most 100,000 are \
+         accepted"
+    );
+}
+
 #[test]
 fn a_module_past_its_timeout_is_stopped_and_contained() {
     let m = contained("sleep", 2.0);
@@ -500,6 +513,29 @@ fn the_listing_shows_a_programs_external_modules() {
         text.contains("    weekly_mean_steps (series, steps/d)\n"),
         "{text}"
     );
+}
+
+/// Before: `cohortpress modules PROGRAM` printed an external module's spec as it came, so a
+/// description holding `ESC ]0;…BEL ESC [2J` set the terminal's title and cleared the screen.
+/// Every other message on the terminal shows control characters escaped.
+#[test]
+fn a_modules_spec_reaches_the_terminal_escaped() {
+    let p = program(&fake("esc", "escapes", None, 20.0));
+    let text = cohortpress::modules::describe_modules(Some(&p));
+    assert!(
+        !text.contains('\u{1b}') && !text.contains('\u{7}') && !text.contains('\u{202e}'),
+        "{text}"
+    );
+    let trap = r"\u{1b}]0;pwned\u{7}\u{1b}[2J\u{202e}";
+    for line in [
+        format!("\nesc 0.0.1{trap} (command: "),
+        format!("\n  test module {trap} (escapes)\n"),
+        format!("\n    label: text, default x{trap} u{trap}, one of: x{trap}, y\n"),
+        format!("\n        a setting {trap}\n"),
+        format!("\n    weigh_ins (scalar, kg{trap})\n        count {trap}\n"),
+    ] {
+        assert!(text.contains(&line), "{line:?} not in\n{text}");
+    }
 }
 
 // ---------------------------------------------------------------------------------------------

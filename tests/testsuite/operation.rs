@@ -637,6 +637,33 @@ fn an_incremental_run_recomputes_a_record_of_the_older_format() {
     assert_eq!(rec["failures"], serde_json::json!([]));
 }
 
+/// Before: `--incremental` checked the previous reports against their hashes but reused a
+/// partial result (`cache/ID.json`, what the group report and tidy metrics are built from) as
+/// found, so an edited one was carried into the new output and the run was no longer equal to a
+/// full one. Now a partial result that is not as the previous manifest lists it is recomputed.
+#[test]
+fn an_incremental_run_recomputes_a_partial_result_edited_since() {
+    let t = ProgramTest::demo(3);
+    let full = out(&t, "full");
+    assert_eq!(run(&t, &full, &[]).code, 0);
+    let inc = out(&t, "inc");
+    assert_eq!(run(&t, &inc, &[]).code, 0);
+    let cache = Path::new(&inc).join("cache/SG-002.json");
+    let mut rec: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(&cache).unwrap()).unwrap();
+    rec["summary"]["baseline_kg"] = "150.0".into();
+    rec["tidy"]["scalars"] = serde_json::json!([]);
+    std::fs::write(&cache, serde_json::to_vec_pretty(&rec).unwrap()).unwrap();
+    let r = run(&t, &inc, &["--incremental"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("2 participants reused, 1 recomputed"),
+        "{}",
+        r.stderr
+    );
+    assert_same_tree(&full, &inc);
+}
+
 #[test]
 fn three_shards_merged_equal_a_single_run() {
     let t = ProgramTest::demo(12);
@@ -730,6 +757,138 @@ fn three_shards_merged_equal_a_single_run() {
         m.stderr
     );
     assert_eq!(std::fs::read(&shard_json).unwrap(), before);
+}
+
+/// Before: `merge` checked each report against the hash its shard recorded but took the partial
+/// results (`cache/ID.json`, what the group report and tidy metrics are built from) as found, so
+/// an edited one was merged with exit 0 and the output differed from a single run's. Now it is
+/// refused as an edited report is, and nothing is written.
+#[test]
+fn a_partial_result_edited_after_its_shard_ran_is_refused_by_merge() {
+    let t = ProgramTest::demo(6);
+    let shard_dirs: Vec<String> = (1..=2)
+        .map(|k| {
+            let d = out(&t, &format!("shard{k}"));
+            let r = run(&t, &d, &["--shard", &format!("{k}/2")]);
+            assert_eq!(r.code, 0, "{}", r.stderr);
+            d
+        })
+        .collect();
+    let shard: serde_json::Value = serde_json::from_slice(
+        &std::fs::read(Path::new(&shard_dirs[0]).join("shard.json")).unwrap(),
+    )
+    .unwrap();
+    let id = shard["participants"][0].as_str().unwrap();
+    let cache = Path::new(&shard_dirs[0]).join(format!("cache/{id}.json"));
+    let mut rec: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(&cache).unwrap()).unwrap();
+    rec["summary"]["baseline_kg"] = "150.0".into();
+    std::fs::write(&cache, serde_json::to_vec(&rec).unwrap()).unwrap();
+
+    let merged = out(&t, "merged");
+    let mut args = vec!["merge", "{dir}", "--out", merged.as_str()];
+    args.extend(shard_dirs.iter().map(String::as_str));
+    let m = t.run(&args);
+    assert_eq!(m.code, 6, "{}", m.stderr);
+    assert!(
+        m.stderr.contains(&format!(
+            "{}: the file changed after its shard wrote it",
+            cache.display()
+        )),
+        "{}",
+        m.stderr
+    );
+    assert!(!Path::new(&merged).exists());
+}
+
+/// Before: `merge` took the shards' participants as they were when each shard ran. A folder
+/// removed since (a participant who withdrew consent) was still in the merged group report and
+/// tidy metrics, one added since was left out, and an edited weights.csv kept its old figures,
+/// all with exit 0. Now each is refused (exit 2), nothing is written, and the shards are named
+/// to be run again.
+#[test]
+fn merge_refuses_shards_of_participant_folders_that_changed_since() {
+    let t = ProgramTest::demo(6);
+    let shard_dirs: Vec<String> = (1..=2)
+        .map(|k| {
+            let d = out(&t, &format!("shard{k}"));
+            let r = run(&t, &d, &["--shard", &format!("{k}/2")]);
+            assert_eq!(r.code, 0, "{}", r.stderr);
+            d
+        })
+        .collect();
+    let merged = out(&t, "merged");
+    let merge = || {
+        let mut args = vec!["merge", "{dir}", "--out", merged.as_str()];
+        args.extend(shard_dirs.iter().map(String::as_str));
+        let m = t.run(&args);
+        assert!(!Path::new(&merged).exists(), "{}", m.stderr);
+        m
+    };
+    let folder = |id: &str| t.dir.join("participants").join(id);
+    let hidden = t.dir.join("SG-002.away");
+
+    std::fs::rename(folder("SG-002"), &hidden).unwrap();
+    let m = merge();
+    assert_eq!(m.code, 2, "{}", m.stderr);
+    assert!(
+        m.stderr.contains(
+            "the participant folders changed since the shards ran (in no shard: []; in a shard, \
+             but no longer in the program: [SG-002]); run the shards again"
+        ),
+        "{}",
+        m.stderr
+    );
+    std::fs::rename(&hidden, folder("SG-002")).unwrap();
+
+    std::fs::create_dir(folder("SG-099")).unwrap();
+    for f in ["profile.yaml", "weights.csv"] {
+        let text = std::fs::read_to_string(folder("SG-002").join(f)).unwrap();
+        std::fs::write(folder("SG-099").join(f), text.replace("SG-002", "SG-099")).unwrap();
+    }
+    let m = merge();
+    assert_eq!(m.code, 2, "{}", m.stderr);
+    assert!(
+        m.stderr
+            .contains("(in no shard: [SG-099]; in a shard, but no longer in the program: [])"),
+        "{}",
+        m.stderr
+    );
+    std::fs::remove_dir_all(folder("SG-099")).unwrap();
+
+    let weights = folder("SG-003").join("weights.csv");
+    let before = std::fs::read(&weights).unwrap();
+    let mut edited = before.clone();
+    edited.extend_from_slice(b"\n");
+    std::fs::write(&weights, &edited).unwrap();
+    let m = merge();
+    assert_eq!(m.code, 2, "{}", m.stderr);
+    assert!(
+        m.stderr.contains(
+            "participant SG-003: participants/SG-003/weights.csv changed since the shards ran; \
+             run the shards again"
+        ),
+        "{}",
+        m.stderr
+    );
+    std::fs::write(&weights, &before).unwrap();
+
+    std::fs::write(folder("SG-003").join("notes.txt"), "x").unwrap();
+    let m = merge();
+    assert_eq!(m.code, 2, "{}", m.stderr);
+    assert!(
+        m.stderr
+            .contains("participant SG-003: the list of files in the folder changed"),
+        "{}",
+        m.stderr
+    );
+    std::fs::remove_file(folder("SG-003").join("notes.txt")).unwrap();
+
+    // As the shards read them: merged.
+    let mut args = vec!["merge", "{dir}", "--out", merged.as_str()];
+    args.extend(shard_dirs.iter().map(String::as_str));
+    let m = t.run(&args);
+    assert_eq!(m.code, 0, "{}", m.stderr);
 }
 
 /// `examples/slurm-array.sh` as Slurm would run it (eight array tasks, then the merge job, with
