@@ -759,6 +759,18 @@ fn three_shards_merged_equal_a_single_run() {
     assert_eq!(std::fs::read(&shard_json).unwrap(), before);
 }
 
+/// Runs the program as shards 1/2 and 2/2 (each must succeed) and returns their folders.
+fn two_shards(t: &ProgramTest) -> Vec<String> {
+    (1..=2)
+        .map(|k| {
+            let d = out(t, &format!("shard{k}"));
+            let r = run(t, &d, &["--shard", &format!("{k}/2")]);
+            assert_eq!(r.code, 0, "{}", r.stderr);
+            d
+        })
+        .collect()
+}
+
 /// Before: `merge` checked each report against the hash its shard recorded but took the partial
 /// results (`cache/ID.json`, what the group report and tidy metrics are built from) as found, so
 /// an edited one was merged with exit 0 and the output differed from a single run's. Now it is
@@ -766,14 +778,7 @@ fn three_shards_merged_equal_a_single_run() {
 #[test]
 fn a_partial_result_edited_after_its_shard_ran_is_refused_by_merge() {
     let t = ProgramTest::demo(6);
-    let shard_dirs: Vec<String> = (1..=2)
-        .map(|k| {
-            let d = out(&t, &format!("shard{k}"));
-            let r = run(&t, &d, &["--shard", &format!("{k}/2")]);
-            assert_eq!(r.code, 0, "{}", r.stderr);
-            d
-        })
-        .collect();
+    let shard_dirs = two_shards(&t);
     let shard: serde_json::Value = serde_json::from_slice(
         &std::fs::read(Path::new(&shard_dirs[0]).join("shard.json")).unwrap(),
     )
@@ -809,14 +814,7 @@ fn a_partial_result_edited_after_its_shard_ran_is_refused_by_merge() {
 #[test]
 fn merge_refuses_shards_of_participant_folders_that_changed_since() {
     let t = ProgramTest::demo(6);
-    let shard_dirs: Vec<String> = (1..=2)
-        .map(|k| {
-            let d = out(&t, &format!("shard{k}"));
-            let r = run(&t, &d, &["--shard", &format!("{k}/2")]);
-            assert_eq!(r.code, 0, "{}", r.stderr);
-            d
-        })
-        .collect();
+    let shard_dirs = two_shards(&t);
     let merged = out(&t, "merged");
     let merge = || {
         let mut args = vec!["merge", "{dir}", "--out", merged.as_str()];
