@@ -1185,6 +1185,27 @@ fn energy_section(
     } else {
         "Total energy use per day (equation and activity, this period)".to_string()
     };
+    // The rest of the total: everyday movement that is not logged activity, and digesting food
+    // (resting × (activity level − 1) when the total is the equation's). Without it, "Resting
+    // energy 1,241" and "Activity, beyond resting 49" stood above a total of 2,020 that they did
+    // not add up to (sample program, September 2026, SG-017). Computed from the printed figures,
+    // so the lines add up as printed; left out when the total from the weight trend is below
+    // the other two (nothing honest to show as "the rest").
+    let printed = |s: Interval| s.value.map(f64::round);
+    let everyday = match (
+        printed(e.tdee_kcal_per_day),
+        printed(e.rmr_kcal_per_day),
+        printed(e.activity_net_kcal_per_day).or(Some(0.0)),
+    ) {
+        (Some(t), Some(r), Some(a)) if t - r - a >= 0.0 => Some(t - r - a),
+        _ => None,
+    };
+    if let Some(rest) = everyday {
+        items.push(Kv::new(
+            "Everyday movement and digestion",
+            &fmt::kcal_per_day(rest),
+        ));
+    }
     push(&mut items, &tdee_label, e.tdee_kcal_per_day);
     push(
         &mut items,
@@ -1236,8 +1257,13 @@ fn energy_section(
     } else {
         ""
     };
+    let rest = if everyday.is_some() {
+        " Everyday movement and digestion is the rest of the total: moving about in daily life beyond the activity you logged, and digesting food."
+    } else {
+        ""
+    };
     let mut explanation = format!(
-        "{how_total} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard.{balance} Ranges are 95 % intervals."
+        "{how_total}{rest} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard.{balance} Ranges are 95 % intervals."
     );
     if let Some(left) = left_before {
         items.retain(|k| {
@@ -2060,6 +2086,56 @@ mod activity_unread_tests {
             "Total energy use per day (equation and activity, this period)"
         );
         assert!(!v.explanation.contains("can differ"));
+    }
+
+    /// Sample program, September 2026, SG-017: "Resting energy 1,241 kcal/day" and "Activity,
+    /// beyond resting 49 kcal/day" stood above "Total energy use per day 2,020 kcal/day", which
+    /// they do not add up to. The rest of the total now has its own line, so the printed lines
+    /// add up; where the total from the weight trend is below the other two, there is no rest to
+    /// show and no line.
+    #[test]
+    fn the_energy_lines_add_up_to_the_total_as_printed() {
+        use cohortpress_metric_api::view::ModuleView;
+        use cohortpress_metric_api::{MetricModule, fixture};
+        let data = fixture::participant();
+        let t = cohortpress_metric_trend::TrendModule;
+        let trend = t.compute(&fixture::context(&t.spec(), &[]), &data).unwrap();
+        let m = cohortpress_metric_energy::EnergyModule;
+        let out = m
+            .compute(&fixture::context(&m.spec(), &[("trend", &trend)]), &data)
+            .unwrap();
+        let mut e = EnergyResults::from_output(&out).unwrap();
+        e.rmr_kcal_per_day.value = Some(1240.6);
+        e.activity_net_kcal_per_day.value = Some(48.7);
+        e.tdee_kcal_per_day.value = Some(2019.8);
+        let value = |v: &EnergyView, label: &str| {
+            v.items
+                .iter()
+                .find(|k| k.label == label)
+                .map(|k| k.value.clone())
+        };
+        for implied in [None, Some(1700.0)] {
+            e.implied_intake_kcal_per_day.value = implied;
+            let (v, _) = energy_section(&e, "last 4 weeks", None, false);
+            // 2,020 − 1,241 − 49 as printed (not 2,019.8 − 1,240.6 − 48.7 = 730.5 → 731).
+            assert_eq!(
+                value(&v, "Everyday movement and digestion").as_deref(),
+                Some("730 kcal/day")
+            );
+            assert!(v.explanation.contains(
+                "Everyday movement and digestion is the rest of the total: moving about in daily life beyond the activity you logged, and digesting food."
+            ));
+            let labels: Vec<&str> = v.items.iter().map(|k| k.label.as_str()).collect();
+            let at = |l: &str| labels.iter().position(|x| x.starts_with(l)).unwrap();
+            assert!(at("Activity, beyond resting") < at("Everyday movement"));
+            assert!(at("Everyday movement") < at("Total energy use"));
+        }
+        // A total from the weight trend below resting + activity: nothing to call the rest.
+        e.implied_intake_kcal_per_day.value = Some(1200.0);
+        e.tdee_kcal_per_day.value = Some(1250.0);
+        let (v, _) = energy_section(&e, "last 4 weeks", None, false);
+        assert_eq!(value(&v, "Everyday movement and digestion"), None);
+        assert!(!v.explanation.contains("Everyday movement"));
     }
 
     /// Sample program, April 2026, SG-006 (enrolled 20 April): "Total energy use per day (last
