@@ -1034,6 +1034,9 @@ fn weight_chart(
             ));
         }
     }
+    if let Some(t) = v.trend.as_ref() {
+        alt.push_str(&source_offsets_words(&t.source_offsets, units));
+    }
     let vlines: Vec<VLine> = left_follow_up
         .map(|w| VLine {
             // The date is in the description: with it the legend entry was cut short in the
@@ -1067,6 +1070,45 @@ fn weight_chart(
             alt,
             table,
         },
+    )
+}
+
+/// Less than this between a weigh-in source and the home scale, kg, is within the day-to-day
+/// scatter of the dots (program choice, as for the steps named in the chart's description).
+const NAMED_SOURCE_OFFSET_KG: f64 = 0.5;
+
+/// What the chart's description says of the weigh-in sources whose offset from the home scale
+/// the trend takes off (clinic weigh-ins in clothes, another scale). The chart draws every
+/// weigh-in as read, so such dots sit off the trend line by the offset; without a word they read
+/// as a trend drawn too low (sample program, September 2026: the clinic dots of 34 of 50
+/// participants 0.5–1.1 kg above the line, unexplained). Empty when no offset reaches
+/// [`NAMED_SOURCE_OFFSET_KG`].
+fn source_offsets_words(
+    offsets: &[cohortpress_metric_trend::view::SourceOffsetRow],
+    units: UnitSystem,
+) -> String {
+    let named: Vec<String> = offsets
+        .iter()
+        .filter_map(|o| {
+            let kg = o.offset_kg.filter(|k| k.abs() >= NAMED_SOURCE_OFFSET_KG)?;
+            let side = if kg > 0.0 { "above" } else { "below" };
+            let mut name: String = o.source.chars().take(40).collect();
+            if name.len() < o.source.len() {
+                name.push('…');
+            }
+            Some(format!(
+                "weigh-ins marked “{name}” read {} {side} your home scale",
+                fmt::weight(kg.abs(), units)
+            ))
+        })
+        .collect();
+    if named.is_empty() {
+        return String::new();
+    }
+    let mut list = named.join(", and ");
+    list[..1].make_ascii_uppercase();
+    format!(
+        " {list} on average (clothing, another scale): the trend takes that off, so their dots sit about that far off the trend line."
     )
 }
 
@@ -2215,6 +2257,38 @@ mod activity_unread_tests {
             weight_chart_alt(start, start, d("2026-09-30"), false, false, None),
             "Weight chart for 1 Apr 2026 to 30 Sep 2026: weigh-ins, the smoothed trend with its 95 % band."
         );
+    }
+
+    /// Sample program, September 2026: clinic dots 0.5–1.1 kg above the trend line in 34 of 50
+    /// reports, with nothing saying the trend takes the clinic's offset off.
+    #[test]
+    fn the_chart_says_which_weigh_in_sources_sit_off_the_trend_line() {
+        use cohortpress_metric_trend::view::SourceOffsetRow;
+        let row = |source: &str, kg: f64| SourceOffsetRow {
+            source: source.into(),
+            offset_kg: Some(kg),
+            weigh_ins: Some(11.0),
+        };
+        assert_eq!(
+            source_offsets_words(&[row("clinic", 0.8835)], UnitSystem::Metric),
+            " Weigh-ins marked “clinic” read 0.9 kg above your home scale on average (clothing, another scale): the trend takes that off, so their dots sit about that far off the trend line."
+        );
+        // Within the day-to-day scatter: not named.
+        assert_eq!(
+            source_offsets_words(&[row("clinic", 0.41)], UnitSystem::Metric),
+            ""
+        );
+        assert_eq!(source_offsets_words(&[], UnitSystem::Metric), "");
+        assert_eq!(
+            source_offsets_words(
+                &[row("clinic", 0.6), row("gym scale", -0.7), row("x", 0.2)],
+                UnitSystem::UsCustomary
+            ),
+            " Weigh-ins marked “clinic” read 1.3 lb above your home scale, and weigh-ins marked “gym scale” read 1.5 lb below your home scale on average (clothing, another scale): the trend takes that off, so their dots sit about that far off the trend line."
+        );
+        let long = "a".repeat(60);
+        let w = source_offsets_words(&[row(&long, 1.0)], UnitSystem::Metric);
+        assert!(w.contains(&format!("“{}…”", "a".repeat(40))), "{w}");
     }
 
     /// Sample program, April 2026, SG-006 (enrolled 20 April, 7 weigh-ins in 11 days) read
