@@ -563,3 +563,95 @@ fn loss_is_praised_only_where_it_is_a_goal_and_a_weight_without_a_trend_is_not_c
         assert!(html("OB-01").contains(words), "OB-01: {words}");
     }
 }
+
+/// Writes a participant folder of `dir` (enrolled 1 April 2026, 160 cm, born on `birth`) who
+/// weighs in every other day at `kg`, to two decimals.
+fn steady_person(dir: &std::path::Path, id: &str, birth: &str, kg: f64) {
+    let p = dir.join("participants").join(id);
+    std::fs::create_dir_all(&p).unwrap();
+    std::fs::write(
+        p.join("profile.yaml"),
+        format!(
+            "id: {id}\nsex: female\nbirth_date: {birth}\nheight: 160 cm\nenrolled: 2026-04-01\ngroups: {{ site: Kiln Row }}\n"
+        ),
+    )
+    .unwrap();
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    let mut csv = String::from("date,weight,unit\n");
+    for i in 0..45 {
+        csv.push_str(&format!(
+            "{},{kg:.2},kg\n",
+            start + chrono::Duration::days(2 * i)
+        ));
+    }
+    std::fs::write(p.join("weights.csv"), csv).unwrap();
+}
+
+/// A BMI exactly on a WHO cut-off at 160 cm (attack17): 1.6 m squared is 2.5600000000000005 in
+/// binary, so 64.0 kg gives 24.999999999999996. The outcomes module counts a value within
+/// round-off of a cut as on it (BMI 25.0, "pre-obese"), but the advice compared the raw value:
+/// the same report read "25.0 kg/m² … pre-obese (overweight)" and "Your BMI is below 25, in the
+/// range the WHO calls normal weight". At 18.5 (47.36 kg) the report held every suggestion for
+/// a clinician over "figures in Points to note" that it did not have (no flag was raised, so
+/// nobody was on the follow-up list either); at 30.0 from age 70 (76.8 kg) it read "Your BMI is
+/// below 30".
+#[test]
+fn a_bmi_on_a_who_cut_off_is_advised_as_the_class_the_report_prints() {
+    let t = ProgramTest::fixture("report-small");
+    steady_person(&t.dir, "CUT-185", "1985-06-01", 47.36);
+    steady_person(&t.dir, "CUT-250", "1985-06-01", 64.0);
+    steady_person(&t.dir, "CUT-300-OLD", "1950-06-01", 76.8);
+    let s = load(&t.dir, "2026-07-10");
+    let get = |id: &str| {
+        s.people
+            .get(id)
+            .unwrap_or_else(|| panic!("{id} not reported"))
+    };
+    let bmi_line = |id: &str| {
+        get(id)
+            .3
+            .summary
+            .iter()
+            .find(|r| r.label == "BMI")
+            .map(|r| r.value.clone())
+            .unwrap_or_default()
+    };
+    let said = |id: &str| get(id).2.paragraphs.join(" ");
+    // 18.5: normal weight by the class printed, no clinical flag, so no hold for a clinician.
+    assert!(
+        bmi_line("CUT-185").starts_with("18.5 kg/m²; your BMI is in the range 18.5 to 24.9"),
+        "{}",
+        bmi_line("CUT-185")
+    );
+    assert!(get("CUT-185").0.clinical_flags.is_empty());
+    assert_eq!(
+        get("CUT-185").1,
+        Phase::Maintain(MaintainWhy::BmiBelowCutoff)
+    );
+    // 25.0: pre-obese, stable, 5 % target not reached: loss is still the goal.
+    assert!(
+        bmi_line("CUT-250").starts_with("25.0 kg/m²; your BMI is in the range 25 to 29.9"),
+        "{}",
+        bmi_line("CUT-250")
+    );
+    assert_eq!(get("CUT-250").1, Phase::RestartLoss, "{}", said("CUT-250"));
+    assert!(!said("CUT-250").contains("below 25"), "{}", said("CUT-250"));
+    // 30.0 at 76: obesity class I, at the older adults' cut-off, not below it.
+    assert!(get("CUT-300-OLD").0.older);
+    assert!(
+        bmi_line("CUT-300-OLD").starts_with("30.0 kg/m²; your BMI is in the range 30 to 34.9"),
+        "{}",
+        bmi_line("CUT-300-OLD")
+    );
+    assert_eq!(
+        get("CUT-300-OLD").1,
+        Phase::RestartLoss,
+        "{}",
+        said("CUT-300-OLD")
+    );
+    assert!(
+        !said("CUT-300-OLD").contains("below 30"),
+        "{}",
+        said("CUT-300-OLD")
+    );
+}

@@ -1286,3 +1286,29 @@ fn intake_below_resting_energy_for_weeks_is_a_clinical_flag() {
         out.flags[1].message
     );
 }
+
+/// BMI 20.0 exactly at 160 cm (51.2 kg: 19.999999999999996 in binary) on a falling trend
+/// (attack17): the class and the printed BMI say 20.0, and the near-floor test is "under 20"
+/// (MUST, BAPEN 2003), so no flag; the raw comparison raised "Current BMI is about 20.0 kg/m²,
+/// close to 18.5". 51.1 kg (BMI 19.96) is still flagged.
+#[test]
+fn low_bmi_while_losing_counts_a_bmi_on_the_cut_off_as_on_it() {
+    let p = participant(Sex::Female, 160.0);
+    let falling = |end: f64| {
+        let out = trend_output(28, 28, -0.5, move |k| end + 0.07 * (28 - k) as f64);
+        let mut t = TrendView::from_output(&out).unwrap();
+        t.status = Status::Losing;
+        t.to_output()
+    };
+    let mut p20 = p.clone();
+    p20.weights = vec![weigh(day(0), 53.2), weigh(day(28), 51.2)];
+    let out = run(&ctx(day(0), day(28), Some(falling(51.2))), &p20);
+    let b = out.scalar("bmi_current_kg_m2").unwrap();
+    assert!(b < 20.0 && b > 20.0 - 1e-12, "{b}");
+    assert_eq!(out.text("bmi_category_current"), Some("normal"));
+    assert!(codes(&out).is_empty(), "{:?}", out.flags);
+    let mut p19 = p;
+    p19.weights = vec![weigh(day(0), 53.1), weigh(day(28), 51.1)];
+    let out = run(&ctx(day(0), day(28), Some(falling(51.1))), &p19);
+    assert_eq!(codes(&out), vec!["low_bmi"]);
+}
