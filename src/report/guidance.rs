@@ -80,6 +80,16 @@ pub fn bmi_below(bmi: f64, cut: f64) -> bool {
     !cohortpress_metric_outcomes::at_or_above_cut(bmi, cut)
 }
 
+/// A BMI cut-off as the program set it: whole numbers without decimals (`25`), others to one
+/// decimal (`27.5`), never rounded to a whole number it is not.
+fn cut_words(cut: f64) -> String {
+    if (cut - cut.round()).abs() < 1e-9 {
+        fmt::fixed(cut, 0)
+    } else {
+        fmt::fixed(cut, 1)
+    }
+}
+
 /// The profile flag that notes a glucose-lowering medicine.
 const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
 
@@ -1081,15 +1091,26 @@ fn maintain(
             format!(
                 "Your BMI is {}below {}. From the age of 70, losing weight at a BMI below {} is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing {}. The aim from here is to hold your weight.",
                 if lost { "now " } else { "" },
-                fmt::fixed(t.loss_cut(true), 0),
-                fmt::fixed(t.loss_cut(true), 0),
+                cut_words(t.loss_cut(true)),
+                cut_words(t.loss_cut(true)),
                 if lost { "more" } else { "weight" }
             )
         }
+        // The WHO class is named only when the BMI is in it: a program may set its own
+        // cut-off anywhere from 18.5 to 40 (`guidance.loss_bmi_at_least`), and BMI 28 under a
+        // cut-off of 30 is "pre-obese" (WHO 2000, TRS 894), not normal weight.
         MaintainWhy::BmiBelowCutoff => format!(
-            "Your BMI is {}below {}, in the range the WHO calls normal weight, so this report does not suggest losing {}. The aim from here is to hold your weight.",
+            "Your BMI is {}below {}, {}, so this report does not suggest losing {}. The aim from here is to hold your weight.",
             if lost { "now " } else { "" },
-            fmt::fixed(t.loss_bmi_at_least, 0),
+            cut_words(t.loss_bmi_at_least),
+            if state.bmi.is_some_and(|b| {
+                cohortpress_metric_outcomes::who_bmi_class(b)
+                    == cohortpress_metric_outcomes::view::BmiCategory::Normal
+            }) {
+                "in the range the WHO calls normal weight"
+            } else {
+                "the level from which this program suggests losing weight"
+            },
             if lost { "more" } else { "weight" }
         ),
         MaintainWhy::NoLossTarget => {

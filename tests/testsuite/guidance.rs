@@ -655,3 +655,46 @@ fn a_bmi_on_a_who_cut_off_is_advised_as_the_class_the_report_prints() {
         said("CUT-300-OLD")
     );
 }
+
+/// A program's own loss cut-off (attack17): `guidance.loss_bmi_at_least` may be set from 18.5 to
+/// 40, but the maintenance text always said "Your BMI is below 25, in the range the WHO calls
+/// normal weight" with the cut printed to no decimals. With 30, a woman at BMI 28.0 read "below
+/// 30, in the range the WHO calls normal weight" beside "pre-obese (overweight)"; with 27.5,
+/// one at BMI 27.3 read "below 28". The sentence now names the WHO class only when the BMI is
+/// in it, and the cut-off as set.
+#[test]
+fn a_programs_own_loss_cut_off_is_named_as_its_own_not_as_who_normal_weight() {
+    let said = |cut: &str, kg: f64| {
+        let t = ProgramTest::fixture("report-small");
+        let yaml = t.dir.join("program.yaml");
+        let text = std::fs::read_to_string(&yaml).unwrap();
+        std::fs::write(
+            &yaml,
+            format!("{text}\nguidance:\n  loss_bmi_at_least: {cut}\n"),
+        )
+        .unwrap();
+        steady_person(&t.dir, "OWN-CUT", "1985-06-01", kg);
+        let s = load(&t.dir, "2026-07-10");
+        let (_, phase, g, _) = &s.people["OWN-CUT"];
+        assert_eq!(
+            *phase,
+            Phase::Maintain(MaintainWhy::BmiBelowCutoff),
+            "{cut} {kg}"
+        );
+        g.paragraphs[0].clone()
+    };
+    // BMI 28.0 (71.68 kg at 160 cm) under a cut-off of 30.
+    assert_eq!(
+        said("30", 71.68),
+        "Your BMI is below 30, the level from which this program suggests losing weight, so \
+         this report does not suggest losing weight. The aim from here is to hold your weight."
+    );
+    // BMI 27.3 (69.89 kg) under 27.5: the cut-off as set, not rounded to 28.
+    assert!(said("27.5", 69.89).starts_with("Your BMI is below 27.5, the level"));
+    // BMI 22.0 (56.32 kg) under 23: normal weight by the WHO, and said so.
+    assert_eq!(
+        said("23", 56.32),
+        "Your BMI is below 23, in the range the WHO calls normal weight, so this report does \
+         not suggest losing weight. The aim from here is to hold your weight."
+    );
+}
