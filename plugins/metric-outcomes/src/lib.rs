@@ -227,9 +227,16 @@ pub fn lab_shown(test: LabTest, value: f64, unit: &str, decimals: i32) -> f64 {
     let class = |v: f64| -> Option<LabCategory> {
         match (test, unit) {
             (LabTest::Hba1c, "%") => Some(hba1c_class(v)),
-            (LabTest::Hba1c, "mmol/mol") => Some(hba1c_class(
-                cohortpress_metric_api::units::hba1c_mmolmol_to_percent(v),
-            )),
+            // Classed by the exact inverse of the conversion that made the value shown
+            // (`hba1c_percent_to_mmolmol`, linear): the master equation's other direction
+            // (`hba1c_mmolmol_to_percent`, Hoelzel et al. 2004) is not its exact inverse, and
+            // 6.499 % → 47.53 mmol/mol → 6.5004 % printed "48 mmol/mol" beside "prediabetes
+            // range" (ADA Standards of Care 2025 §2: diabetes from 6.5 %, 48 mmol/mol).
+            (LabTest::Hba1c, "mmol/mol") => {
+                let at0 = hba1c_percent_to_mmolmol(0.0);
+                let per_percent = hba1c_percent_to_mmolmol(1.0) - at0;
+                Some(hba1c_class((v - at0) / per_percent))
+            }
             (LabTest::FastingGlucose, "mmol/L") => Some(fasting_glucose_class(v)),
             (LabTest::FastingGlucose, "mg/dL") => {
                 Some(fasting_glucose_class(v / GLUCOSE_MGDL_PER_MMOLL))

@@ -1312,3 +1312,32 @@ fn low_bmi_while_losing_counts_a_bmi_on_the_cut_off_as_on_it() {
     let out = run(&ctx(day(0), day(28), Some(falling(51.1))), &p19);
     assert_eq!(codes(&out), vec!["low_bmi"]);
 }
+
+/// HbA1c 6.499 % (prediabetes range, ADA Standards of Care 2025 §2) was printed "6.4 % | 48
+/// mmol/mol | prediabetes range" (attack17): the mmol/mol figure (10.93 × 6.499 − 23.50 =
+/// 47.53) was classed by the master equation's other direction (0.09148 × 47.53 + 2.152 =
+/// 6.5004 %, diabetes range), which is not its exact inverse, so rounding it up to 48 — the
+/// ADA's mmol/mol cut-off — looked safe. Classed by the exact inverse of the conversion that
+/// made it, it prints 47; 6.5 % still prints 48, and a value entered as 48 mmol/mol still 48.
+#[test]
+fn an_hba1c_shown_in_mmol_per_mol_is_not_rounded_across_the_diabetes_cut_off() {
+    use cohortpress_metric_outcomes::lab_shown;
+    let alt = |percent: f64| {
+        lab_shown(
+            LabTest::Hba1c,
+            hba1c_percent_to_mmolmol(percent),
+            "mmol/mol",
+            0,
+        )
+    };
+    assert_eq!(hba1c_category(6.499), "prediabetes_range");
+    assert_eq!(alt(6.499), 47.0);
+    assert_eq!(alt(6.4999), 47.0);
+    assert_eq!(alt(6.5), 48.0);
+    assert_eq!(alt(6.4), 46.0);
+    assert_eq!(alt(hba1c_mmolmol_to_percent(48.0)), 48.0);
+    assert_eq!(alt(hba1c_mmolmol_to_percent(47.0)), 47.0);
+    // The % column itself: 6.499 prints 6.4, 6.5 prints 6.5.
+    assert_eq!(lab_shown(LabTest::Hba1c, 6.499, "%", 1), 6.4);
+    assert_eq!(lab_shown(LabTest::Hba1c, 6.5, "%", 1), 6.5);
+}
