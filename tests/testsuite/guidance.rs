@@ -567,12 +567,17 @@ fn loss_is_praised_only_where_it_is_a_goal_and_a_weight_without_a_trend_is_not_c
 /// Writes a participant folder of `dir` (enrolled 1 April 2026, 160 cm, born on `birth`) who
 /// weighs in every other day at `kg`, to two decimals.
 fn steady_person(dir: &std::path::Path, id: &str, birth: &str, kg: f64) {
+    steady_person_of(dir, id, birth, 160, kg);
+}
+
+/// [`steady_person`] of `height_cm`.
+fn steady_person_of(dir: &std::path::Path, id: &str, birth: &str, height_cm: u32, kg: f64) {
     let p = dir.join("participants").join(id);
     std::fs::create_dir_all(&p).unwrap();
     std::fs::write(
         p.join("profile.yaml"),
         format!(
-            "id: {id}\nsex: female\nbirth_date: {birth}\nheight: 160 cm\nenrolled: 2026-04-01\ngroups: {{ site: Kiln Row }}\n"
+            "id: {id}\nsex: female\nbirth_date: {birth}\nheight: {height_cm} cm\nenrolled: 2026-04-01\ngroups: {{ site: Kiln Row }}\n"
         ),
     )
     .unwrap();
@@ -697,4 +702,45 @@ fn a_programs_own_loss_cut_off_is_named_as_its_own_not_as_who_normal_weight() {
         "Your BMI is below 23, in the range the WHO calls normal weight, so this report does \
          not suggest losing weight. The aim from here is to hold your weight."
     );
+}
+
+/// The clinician follow-up list printed a BMI rounded across the WHO cut-off (attack17): a woman
+/// of 200 cm at 73.84 kg (BMI 18.46, underweight) was listed "BMI 18.5" in the Values column
+/// and `18.5` in followup.csv, beside her own flag "Current BMI is about 18.4 kg/m², below
+/// 18.5". Her report prints 18.4; the list now does too (WHO 2000, TRS 894: underweight < 18.5).
+#[test]
+fn the_followup_list_never_rounds_a_bmi_across_a_who_cut_off() {
+    let t = ProgramTest::fixture("report-small");
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Program nurse\"\n"),
+    )
+    .unwrap();
+    steady_person_of(&t.dir, "UW-1846", "1985-06-01", 200, 73.84);
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-07-10",
+        "--formats",
+        "html",
+        "--only",
+        "UW-1846",
+        "--out",
+        "{dir}/only",
+    ]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let read = |f: &str| std::fs::read_to_string(t.dir.join("only/followup").join(f)).unwrap();
+    let html = read("followup.html");
+    assert!(html.contains("BMI 18.4;"), "{html}");
+    assert!(!html.contains("BMI 18.5"), "{html}");
+    assert!(html.contains("about 18.4 kg/m², below 18.5"), "{html}");
+    let csv = read("followup.csv");
+    let row = csv
+        .lines()
+        .find(|l| l.starts_with("UW-1846,"))
+        .expect("listed");
+    assert!(row.contains(",73.8,18.4,"), "{row}");
 }
