@@ -2253,14 +2253,21 @@ pub fn parse_sessions(
     Some(out)
 }
 
-/// Units accepted per lab test, with the conversion to the canonical unit.
+/// Units accepted per lab test, with the conversion to the canonical unit. HbA1c units may
+/// carry the standard they are reported to, as laboratories that report both write them
+/// (`% (NGSP)`, `% DCCT`, `mmol/mol (IFCC)`, `mmol/mol Hb`: IFCC–NGSP dual reporting, the 2007
+/// consensus statement on HbA1c standardisation, Diabetes Care 30:2399, from memory); without
+/// them a diabetes-range result was dropped with a warning and never reached the clinician's
+/// flag. `mg/100 mL` is mg/dL (1 dL = 100 mL).
 fn lab_unit(test: LabTest, unit: &str) -> Option<fn(f64) -> f64> {
-    let u = unit.to_lowercase().replace(' ', "");
+    let u = unit.to_lowercase().replace([' ', '(', ')'], "");
     Some(match (test, u.as_str()) {
         (LabTest::FastingGlucose, "mmol/l") => |v| v,
-        (LabTest::FastingGlucose, "mg/dl") => glucose_mgdl_to_mmoll,
-        (LabTest::Hba1c, "%" | "percent") => |v| v,
-        (LabTest::Hba1c, "mmol/mol") => hba1c_mmolmol_to_percent,
+        (LabTest::FastingGlucose, "mg/dl" | "mg/100ml") => glucose_mgdl_to_mmoll,
+        (LabTest::Hba1c, "%" | "percent" | "%ngsp" | "%dcct" | "%dcct/ngsp" | "%ngsp/dcct") => {
+            |v| v
+        }
+        (LabTest::Hba1c, "mmol/mol" | "mmol/molifcc" | "mmol/molhb") => hba1c_mmolmol_to_percent,
         (LabTest::Waist, "cm") => |v| v,
         (LabTest::Waist, "in" | "inch" | "inches" | "[in_i]") => |v| v * CM_PER_IN,
         (LabTest::SystolicBp | LabTest::DiastolicBp, "mmhg") => |v| v,

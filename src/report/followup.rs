@@ -261,6 +261,12 @@ pub struct FollowupContext {
     pub table: TableView,
 }
 
+/// A BMI to one decimal as the participant's report and the flags print it: never rounded
+/// across a WHO cut-off (WHO 2000, TRS 894; 18.46 is underweight and prints 18.4, not 18.5).
+fn bmi_shown(b: f64) -> String {
+    fmt::fixed(cohortpress_metric_outcomes::bmi_one_decimal(b), 1)
+}
+
 fn values(r: &FollowupRecord, plan: &Scope<'_>) -> String {
     let units = plan.program.info.units;
     let mut v = Vec::new();
@@ -268,7 +274,7 @@ fn values(r: &FollowupRecord, plan: &Scope<'_>) -> String {
         v.push(format!("weight {}", fmt::weight(w, units)));
     }
     if let Some(b) = r.bmi {
-        v.push(format!("BMI {}", fmt::fixed(b, 1)));
+        v.push(format!("BMI {}", bmi_shown(b)));
     }
     if let Some(c) = r.change_percent {
         v.push(format!("change {}", fmt::percent_change(c)));
@@ -415,7 +421,7 @@ pub fn csv(plan: &Scope<'_>, records: &[FollowupRecord]) -> Result<Vec<u8>, Rend
                 &it.reason,
                 &it.dates,
                 &n(r.weight_kg, 1),
-                &n(r.bmi, 1),
+                &r.bmi.map(bmi_shown).unwrap_or_default(),
                 &n(r.change_percent, 1),
                 &n(r.rate_kg_per_week, 2),
                 &n(r.logged_intake_kcal_per_day, 0),

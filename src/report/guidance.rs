@@ -72,6 +72,24 @@ pub const HOLDING_FLAGS: [&str; 11] = [
     "pregnancy",
 ];
 
+/// Whether a BMI lies below a cut-off, by the `outcomes` module's rule for cut points (a value
+/// within round-off of a cut counts as on it), so that the advice and the WHO class the report
+/// prints (WHO 2000, Technical Report Series 894, half-open classes) agree: 64.0 kg at 160 cm
+/// is 24.999999999999996 in binary, printed "25.0 … pre-obese", and is not "below 25" here.
+pub fn bmi_below(bmi: f64, cut: f64) -> bool {
+    !cohortpress_metric_outcomes::at_or_above_cut(bmi, cut)
+}
+
+/// A BMI cut-off as the program set it: whole numbers without decimals (`25`), others to one
+/// decimal (`27.5`), never rounded to a whole number it is not.
+fn cut_words(cut: f64) -> String {
+    if (cut - cut.round()).abs() < 1e-9 {
+        fmt::fixed(cut, 0)
+    } else {
+        fmt::fixed(cut, 1)
+    }
+}
+
 /// The profile flag that notes a glucose-lowering medicine.
 const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
 
@@ -345,7 +363,7 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
         .clinical_flags
         .iter()
         .any(|c| HOLDING_FLAGS.contains(&c.as_str()));
-    if holding || s.bmi.is_some_and(|b| b < t.underweight_bmi_below) {
+    if holding || s.bmi.is_some_and(|b| bmi_below(b, t.underweight_bmi_below)) {
         return Phase::Clinician;
     }
     // A rise confirmed by level counts when the last four weeks cannot speak for themselves
@@ -364,7 +382,7 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
         } else {
             t.low_bmi_losing_below
         };
-        if s.bmi.is_some_and(|b| b < low_cut) {
+        if s.bmi.is_some_and(|b| bmi_below(b, low_cut)) {
             return Phase::Maintain(MaintainWhy::LowBmiRising);
         }
         return Phase::Regain;
@@ -379,7 +397,7 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
     if change <= s.target_percent {
         return Phase::Maintain(MaintainWhy::TargetReached);
     }
-    if bmi < t.loss_cut(s.older) {
+    if bmi_below(bmi, t.loss_cut(s.older)) {
         return Phase::Maintain(MaintainWhy::BmiBelowCutoff);
     }
     match s.status {
@@ -400,7 +418,7 @@ pub fn decide(s: &State, t: &Thresholds) -> Phase {
 /// no loss milestone still to reach.
 pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
     s.bmi
-        .is_some_and(|b| b < t.loss_cut(s.older) || b < t.underweight_bmi_below)
+        .is_some_and(|b| bmi_below(b, t.loss_cut(s.older)) || bmi_below(b, t.underweight_bmi_below))
         || s.clinical_flags.iter().any(|c| c == "pregnancy")
 }
 
@@ -408,7 +426,7 @@ pub fn bmi_rules_out_loss(s: &State, t: &Thresholds) -> bool {
 pub fn loss_is_goal(s: &State, t: &Thresholds) -> bool {
     s.target_percent < 0.0
         && s.change_percent.is_none_or(|c| c > s.target_percent)
-        && s.bmi.is_some_and(|b| b >= t.loss_cut(s.older))
+        && s.bmi.is_some_and(|b| !bmi_below(b, t.loss_cut(s.older)))
         && !bmi_rules_out_loss(s, t)
 }
 
@@ -1050,7 +1068,9 @@ fn maintain(
     // to go on (a participant at HbA1c 6.8 %, BMI 31.3, 9.7 % down read both).
     let clinician_decides = why == MaintainWhy::TargetReached
         && f.lab_in_diabetes_range
-        && state.bmi.is_some_and(|b| b >= t.loss_cut(state.older));
+        && state
+            .bmi
+            .is_some_and(|b| !bmi_below(b, t.loss_cut(state.older)));
     g.paragraphs.push(match why {
         MaintainWhy::TargetReached if clinician_decides => format!(
             "You have reached your target of a {} % loss (you are at {} %). Whether losing more would help with your blood sugar is for your clinician to judge; until you have talked it over, the aim is to hold your weight.",
@@ -1066,20 +1086,31 @@ fn maintain(
         MaintainWhy::BmiBelowCutoff
             if state.older
                 && t.loss_cut(true) > t.loss_bmi_at_least
-                && state.bmi.is_some_and(|b| b >= t.loss_bmi_at_least) =>
+                && state.bmi.is_some_and(|b| !bmi_below(b, t.loss_bmi_at_least)) =>
         {
             format!(
                 "Your BMI is {}below {}. From the age of 70, losing weight at a BMI below {} is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing {}. The aim from here is to hold your weight.",
                 if lost { "now " } else { "" },
-                fmt::fixed(t.loss_cut(true), 0),
-                fmt::fixed(t.loss_cut(true), 0),
+                cut_words(t.loss_cut(true)),
+                cut_words(t.loss_cut(true)),
                 if lost { "more" } else { "weight" }
             )
         }
+        // The WHO class is named only when the BMI is in it: a program may set its own
+        // cut-off anywhere from 18.5 to 40 (`guidance.loss_bmi_at_least`), and BMI 28 under a
+        // cut-off of 30 is "pre-obese" (WHO 2000, TRS 894), not normal weight.
         MaintainWhy::BmiBelowCutoff => format!(
-            "Your BMI is {}below {}, in the range the WHO calls normal weight, so this report does not suggest losing {}. The aim from here is to hold your weight.",
+            "Your BMI is {}below {}, {}, so this report does not suggest losing {}. The aim from here is to hold your weight.",
             if lost { "now " } else { "" },
-            fmt::fixed(t.loss_bmi_at_least, 0),
+            cut_words(t.loss_bmi_at_least),
+            if state.bmi.is_some_and(|b| {
+                cohortpress_metric_outcomes::who_bmi_class(b)
+                    == cohortpress_metric_outcomes::view::BmiCategory::Normal
+            }) {
+                "in the range the WHO calls normal weight"
+            } else {
+                "the level from which this program suggests losing weight"
+            },
             if lost { "more" } else { "weight" }
         ),
         MaintainWhy::NoLossTarget => {

@@ -202,11 +202,11 @@ pub fn build(
             c == "low_bmi" || c == "pregnancy" || UNSAFE_LOSS_FLAGS.contains(&c.as_str())
         }) || state
             .bmi
-            .is_some_and(|b| b < thresholds.underweight_bmi_below)
+            .is_some_and(|b| guidance::bmi_below(b, thresholds.underweight_bmi_below))
             || v.outcomes
                 .as_ref()
                 .and_then(|o| o.bmi_baseline_kg_m2)
-                .is_some_and(|b| b < thresholds.loss_cut(state.older)));
+                .is_some_and(|b| guidance::bmi_below(b, thresholds.loss_cut(state.older))));
 
     // Weight chart, with the target weight when there is a starting weight.
     let target_kg = v

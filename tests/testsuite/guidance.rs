@@ -563,3 +563,184 @@ fn loss_is_praised_only_where_it_is_a_goal_and_a_weight_without_a_trend_is_not_c
         assert!(html("OB-01").contains(words), "OB-01: {words}");
     }
 }
+
+/// Writes a participant folder of `dir` (enrolled 1 April 2026, 160 cm, born on `birth`) who
+/// weighs in every other day at `kg`, to two decimals.
+fn steady_person(dir: &std::path::Path, id: &str, birth: &str, kg: f64) {
+    steady_person_of(dir, id, birth, 160, kg);
+}
+
+/// [`steady_person`] of `height_cm`.
+fn steady_person_of(dir: &std::path::Path, id: &str, birth: &str, height_cm: u32, kg: f64) {
+    let p = dir.join("participants").join(id);
+    std::fs::create_dir_all(&p).unwrap();
+    std::fs::write(
+        p.join("profile.yaml"),
+        format!(
+            "id: {id}\nsex: female\nbirth_date: {birth}\nheight: {height_cm} cm\nenrolled: 2026-04-01\ngroups: {{ site: Kiln Row }}\n"
+        ),
+    )
+    .unwrap();
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    let mut csv = String::from("date,weight,unit\n");
+    for i in 0..45 {
+        csv.push_str(&format!(
+            "{},{kg:.2},kg\n",
+            start + chrono::Duration::days(2 * i)
+        ));
+    }
+    std::fs::write(p.join("weights.csv"), csv).unwrap();
+}
+
+/// A BMI exactly on a WHO cut-off at 160 cm (attack17): 1.6 m squared is 2.5600000000000005 in
+/// binary, so 64.0 kg gives 24.999999999999996. The outcomes module counts a value within
+/// round-off of a cut as on it (BMI 25.0, "pre-obese"), but the advice compared the raw value:
+/// the same report read "25.0 kg/m² … pre-obese (overweight)" and "Your BMI is below 25, in the
+/// range the WHO calls normal weight". At 18.5 (47.36 kg) the report held every suggestion for
+/// a clinician over "figures in Points to note" that it did not have (no flag was raised, so
+/// nobody was on the follow-up list either); at 30.0 from age 70 (76.8 kg) it read "Your BMI is
+/// below 30".
+#[test]
+fn a_bmi_on_a_who_cut_off_is_advised_as_the_class_the_report_prints() {
+    let t = ProgramTest::fixture("report-small");
+    steady_person(&t.dir, "CUT-185", "1985-06-01", 47.36);
+    steady_person(&t.dir, "CUT-250", "1985-06-01", 64.0);
+    steady_person(&t.dir, "CUT-300-OLD", "1950-06-01", 76.8);
+    let s = load(&t.dir, "2026-07-10");
+    let get = |id: &str| {
+        s.people
+            .get(id)
+            .unwrap_or_else(|| panic!("{id} not reported"))
+    };
+    let bmi_line = |id: &str| {
+        get(id)
+            .3
+            .summary
+            .iter()
+            .find(|r| r.label == "BMI")
+            .map(|r| r.value.clone())
+            .unwrap_or_default()
+    };
+    let said = |id: &str| get(id).2.paragraphs.join(" ");
+    // 18.5: normal weight by the class printed, no clinical flag, so no hold for a clinician.
+    assert!(
+        bmi_line("CUT-185").starts_with("18.5 kg/m²; your BMI is in the range 18.5 to 24.9"),
+        "{}",
+        bmi_line("CUT-185")
+    );
+    assert!(get("CUT-185").0.clinical_flags.is_empty());
+    assert_eq!(
+        get("CUT-185").1,
+        Phase::Maintain(MaintainWhy::BmiBelowCutoff)
+    );
+    // 25.0: pre-obese, stable, 5 % target not reached: loss is still the goal.
+    assert!(
+        bmi_line("CUT-250").starts_with("25.0 kg/m²; your BMI is in the range 25 to 29.9"),
+        "{}",
+        bmi_line("CUT-250")
+    );
+    assert_eq!(get("CUT-250").1, Phase::RestartLoss, "{}", said("CUT-250"));
+    assert!(!said("CUT-250").contains("below 25"), "{}", said("CUT-250"));
+    // 30.0 at 76: obesity class I, at the older adults' cut-off, not below it.
+    assert!(get("CUT-300-OLD").0.older);
+    assert!(
+        bmi_line("CUT-300-OLD").starts_with("30.0 kg/m²; your BMI is in the range 30 to 34.9"),
+        "{}",
+        bmi_line("CUT-300-OLD")
+    );
+    assert_eq!(
+        get("CUT-300-OLD").1,
+        Phase::RestartLoss,
+        "{}",
+        said("CUT-300-OLD")
+    );
+    assert!(
+        !said("CUT-300-OLD").contains("below 30"),
+        "{}",
+        said("CUT-300-OLD")
+    );
+}
+
+/// A program's own loss cut-off (attack17): `guidance.loss_bmi_at_least` may be set from 18.5 to
+/// 40, but the maintenance text always said "Your BMI is below 25, in the range the WHO calls
+/// normal weight" with the cut printed to no decimals. With 30, a woman at BMI 28.0 read "below
+/// 30, in the range the WHO calls normal weight" beside "pre-obese (overweight)"; with 27.5,
+/// one at BMI 27.3 read "below 28". The sentence now names the WHO class only when the BMI is
+/// in it, and the cut-off as set.
+#[test]
+fn a_programs_own_loss_cut_off_is_named_as_its_own_not_as_who_normal_weight() {
+    let said = |cut: &str, kg: f64| {
+        let t = ProgramTest::fixture("report-small");
+        let yaml = t.dir.join("program.yaml");
+        let text = std::fs::read_to_string(&yaml).unwrap();
+        std::fs::write(
+            &yaml,
+            format!("{text}\nguidance:\n  loss_bmi_at_least: {cut}\n"),
+        )
+        .unwrap();
+        steady_person(&t.dir, "OWN-CUT", "1985-06-01", kg);
+        let s = load(&t.dir, "2026-07-10");
+        let (_, phase, g, _) = &s.people["OWN-CUT"];
+        assert_eq!(
+            *phase,
+            Phase::Maintain(MaintainWhy::BmiBelowCutoff),
+            "{cut} {kg}"
+        );
+        g.paragraphs[0].clone()
+    };
+    // BMI 28.0 (71.68 kg at 160 cm) under a cut-off of 30.
+    assert_eq!(
+        said("30", 71.68),
+        "Your BMI is below 30, the level from which this program suggests losing weight, so \
+         this report does not suggest losing weight. The aim from here is to hold your weight."
+    );
+    // BMI 27.3 (69.89 kg) under 27.5: the cut-off as set, not rounded to 28.
+    assert!(said("27.5", 69.89).starts_with("Your BMI is below 27.5, the level"));
+    // BMI 22.0 (56.32 kg) under 23: normal weight by the WHO, and said so.
+    assert_eq!(
+        said("23", 56.32),
+        "Your BMI is below 23, in the range the WHO calls normal weight, so this report does \
+         not suggest losing weight. The aim from here is to hold your weight."
+    );
+}
+
+/// The clinician follow-up list printed a BMI rounded across the WHO cut-off (attack17): a woman
+/// of 200 cm at 73.84 kg (BMI 18.46, underweight) was listed "BMI 18.5" in the Values column
+/// and `18.5` in followup.csv, beside her own flag "Current BMI is about 18.4 kg/m², below
+/// 18.5". Her report prints 18.4; the list now does too (WHO 2000, TRS 894: underweight < 18.5).
+#[test]
+fn the_followup_list_never_rounds_a_bmi_across_a_who_cut_off() {
+    let t = ProgramTest::fixture("report-small");
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Program nurse\"\n"),
+    )
+    .unwrap();
+    steady_person_of(&t.dir, "UW-1846", "1985-06-01", 200, 73.84);
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-07-10",
+        "--formats",
+        "html",
+        "--only",
+        "UW-1846",
+        "--out",
+        "{dir}/only",
+    ]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let read = |f: &str| std::fs::read_to_string(t.dir.join("only/followup").join(f)).unwrap();
+    let html = read("followup.html");
+    assert!(html.contains("BMI 18.4;"), "{html}");
+    assert!(!html.contains("BMI 18.5"), "{html}");
+    assert!(html.contains("about 18.4 kg/m², below 18.5"), "{html}");
+    let csv = read("followup.csv");
+    let row = csv
+        .lines()
+        .find(|l| l.starts_with("UW-1846,"))
+        .expect("listed");
+    assert!(row.contains(",73.8,18.4,"), "{row}");
+}

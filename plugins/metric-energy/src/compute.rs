@@ -666,8 +666,9 @@ pub(crate) fn run(
             Unexplained::Rise { intake, ceiling } => format!(
                 "rose faster than food can build body tissue: it would take about {:.0} kcal a \
                  day, more than a person can take in and absorb for weeks on end (about {:.1} \
-                 times resting energy, here about {ceiling:.0} kcal a day). A change of scale \
-                 or clothing, a mistyped weigh-in or fluid is more likely",
+                 times resting energy at the mean weight of those days, here about \
+                 {ceiling:.0} kcal a day). A change of scale or clothing, a mistyped weigh-in \
+                 or fluid is more likely",
                 intake.round(),
                 s.max_intake_x_rmr
             ),

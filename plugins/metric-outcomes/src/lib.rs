@@ -187,6 +187,22 @@ fn at_least(x: f64, cut: f64) -> bool {
     x >= cut - CUT_EPS
 }
 
+/// Whether `x` is at or above the cut point `cut` by this module's rule for cut points: a
+/// value within round-off of a cut counts as on it (see "Cut points" in the crate docs). The
+/// report's advice decides with it too, so that a BMI this module classes as 25.0
+/// ("pre-obese") is never "below 25" there: 64.0 kg at 160 cm is 24.999999999999996 in binary.
+///
+/// # Examples
+///
+/// ```
+/// use cohortpress_metric_outcomes::{at_or_above_cut, bmi};
+/// assert!(at_or_above_cut(bmi(64.0, 1.6), 25.0));
+/// assert!(!at_or_above_cut(24.99, 25.0));
+/// ```
+pub fn at_or_above_cut(x: f64, cut: f64) -> bool {
+    at_least(x, cut)
+}
+
 /// A BMI to one decimal as reports print it: rounded, except where rounding would cross a WHO
 /// cut-off that its class ([`who_bmi_class`]) does not; it is then cut instead (29.97 is
 /// "pre-obese" and prints 29.9, not 30.0; 18.46 is underweight and prints 18.4, not 18.5; 18.69
@@ -211,9 +227,16 @@ pub fn lab_shown(test: LabTest, value: f64, unit: &str, decimals: i32) -> f64 {
     let class = |v: f64| -> Option<LabCategory> {
         match (test, unit) {
             (LabTest::Hba1c, "%") => Some(hba1c_class(v)),
-            (LabTest::Hba1c, "mmol/mol") => Some(hba1c_class(
-                cohortpress_metric_api::units::hba1c_mmolmol_to_percent(v),
-            )),
+            // Classed by the exact inverse of the conversion that made the value shown
+            // (`hba1c_percent_to_mmolmol`, linear): the master equation's other direction
+            // (`hba1c_mmolmol_to_percent`, Hoelzel et al. 2004) is not its exact inverse, and
+            // 6.499 % → 47.53 mmol/mol → 6.5004 % printed "48 mmol/mol" beside "prediabetes
+            // range" (ADA Standards of Care 2025 §2: diabetes from 6.5 %, 48 mmol/mol).
+            (LabTest::Hba1c, "mmol/mol") => {
+                let at0 = hba1c_percent_to_mmolmol(0.0);
+                let per_percent = hba1c_percent_to_mmolmol(1.0) - at0;
+                Some(hba1c_class((v - at0) / per_percent))
+            }
             (LabTest::FastingGlucose, "mmol/L") => Some(fasting_glucose_class(v)),
             (LabTest::FastingGlucose, "mg/dL") => {
                 Some(fasting_glucose_class(v / GLUCOSE_MGDL_PER_MMOLL))
@@ -1580,7 +1603,9 @@ fn push_low_bmi_flag(
     } else {
         near
     };
-    if b < near && w.trend_falling {
+    // The same rule for cut points as every class (`at_least`): a BMI printed and classed as
+    // 20.0 is not "under 20".
+    if !at_least(b, near) && w.trend_falling {
         let rate = w
             .trend_rate
             .filter(|r| *r < 0.0)

@@ -1286,3 +1286,58 @@ fn intake_below_resting_energy_for_weeks_is_a_clinical_flag() {
         out.flags[1].message
     );
 }
+
+/// BMI 20.0 exactly at 160 cm (51.2 kg: 19.999999999999996 in binary) on a falling trend
+/// (attack17): the class and the printed BMI say 20.0, and the near-floor test is "under 20"
+/// (MUST, BAPEN 2003), so no flag; the raw comparison raised "Current BMI is about 20.0 kg/m²,
+/// close to 18.5". 51.1 kg (BMI 19.96) is still flagged.
+#[test]
+fn low_bmi_while_losing_counts_a_bmi_on_the_cut_off_as_on_it() {
+    let p = participant(Sex::Female, 160.0);
+    let falling = |end: f64| {
+        let out = trend_output(28, 28, -0.5, move |k| end + 0.07 * (28 - k) as f64);
+        let mut t = TrendView::from_output(&out).unwrap();
+        t.status = Status::Losing;
+        t.to_output()
+    };
+    let mut p20 = p.clone();
+    p20.weights = vec![weigh(day(0), 53.2), weigh(day(28), 51.2)];
+    let out = run(&ctx(day(0), day(28), Some(falling(51.2))), &p20);
+    let b = out.scalar("bmi_current_kg_m2").unwrap();
+    assert!(b < 20.0 && b > 20.0 - 1e-12, "{b}");
+    assert_eq!(out.text("bmi_category_current"), Some("normal"));
+    assert!(codes(&out).is_empty(), "{:?}", out.flags);
+    let mut p19 = p;
+    p19.weights = vec![weigh(day(0), 53.1), weigh(day(28), 51.1)];
+    let out = run(&ctx(day(0), day(28), Some(falling(51.1))), &p19);
+    assert_eq!(codes(&out), vec!["low_bmi"]);
+}
+
+/// HbA1c 6.499 % (prediabetes range, ADA Standards of Care 2025 §2) was printed "6.4 % | 48
+/// mmol/mol | prediabetes range" (attack17): the mmol/mol figure (10.93 × 6.499 − 23.50 =
+/// 47.53) was classed by the master equation's other direction (0.09148 × 47.53 + 2.152 =
+/// 6.5004 %, diabetes range), which is not its exact inverse, so rounding it up to 48 — the
+/// ADA's mmol/mol cut-off — looked safe. Classed by the exact inverse of the conversion that
+/// made it, it prints 47; 6.5 % still prints 48, and a value entered as 48 mmol/mol still 48.
+#[test]
+fn an_hba1c_shown_in_mmol_per_mol_is_not_rounded_across_the_diabetes_cut_off() {
+    use cohortpress_metric_outcomes::lab_shown;
+    let alt = |percent: f64| {
+        lab_shown(
+            LabTest::Hba1c,
+            hba1c_percent_to_mmolmol(percent),
+            "mmol/mol",
+            0,
+        )
+    };
+    assert_eq!(hba1c_category(6.499), "prediabetes_range");
+    assert_eq!(alt(6.499), 47.0);
+    assert_eq!(alt(6.4999), 47.0);
+    assert_eq!(alt(6.5), 48.0);
+    assert_eq!(alt(6.4), 46.0);
+    assert_eq!(alt(hba1c_mmolmol_to_percent(48.0)), 48.0);
+    assert_eq!(alt(hba1c_mmolmol_to_percent(47.0)), 47.0);
+    // The % column itself: 6.499 prints 6.4, 6.5 prints 6.5.
+    assert_eq!(lab_shown(LabTest::Hba1c, 6.499, "%", 1), 6.4);
+    assert_eq!(lab_shown(LabTest::Hba1c, 6.5, "%", 1), 6.5);
+}

@@ -1393,6 +1393,36 @@ fn labs_are_converted_to_canonical_units() {
     assert!(diags[2].message.contains("implausible `hba1c`"));
 }
 
+/// Laboratories that report HbA1c both ways name the standard beside the unit (attack17):
+/// `% (NGSP)`, `% DCCT`, `mmol/mol (IFCC)`, `mmol/mol Hb` were each "unit not accepted", so an
+/// HbA1c of 6.5 % / 48 mmol/mol was dropped and raised no flag for the clinician. `mg/100 mL`
+/// is mg/dL. A unit of another quantity is still refused.
+#[test]
+fn lab_units_with_their_standard_named_are_read() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,hba1c,6.5,% (NGSP)\n2026-04-02,hba1c,6.5,% DCCT\n2026-04-03,hba1c,6.5,% (DCCT/NGSP)\n2026-04-04,hba1c,48,mmol/mol (IFCC)\n2026-04-05,hba1c,48,mmol/mol Hb\n2026-04-06,fasting_glucose,126,mg/100 mL\n2026-04-07,hba1c,6.5,mg/dL\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(v.len(), 6, "{diags:#?}");
+    for l in &v[..3] {
+        assert_eq!((l.test, l.value), (LabTest::Hba1c, 6.5));
+    }
+    // Hoelzel et al. 2004: 48 mmol/mol = 0.09148 × 48 + 2.152 = 6.543 %.
+    for l in &v[3..5] {
+        assert!((l.value - 6.543).abs() < 1e-3, "{}", l.value);
+    }
+    // 126 mg/dL ÷ 18.016 = 6.994 mmol/L.
+    assert_eq!(v[5].test, LabTest::FastingGlucose);
+    assert!((v[5].value - 6.994).abs() < 1e-3, "{}", v[5].value);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(diags[0].message.contains("unit not accepted"));
+}
+
 #[test]
 fn missing_required_column_makes_the_file_unusable() {
     let mut diags = Vec::new();
