@@ -207,8 +207,12 @@ impl Imported {
                     return;
                 };
                 let p = self.patient(id);
+                // FHIR R4 AdministrativeGender: male | female | other | unknown. The last two
+                // say the record holds neither value: `sex: unrecorded`, which the energy
+                // equations read as either, with the added uncertainty.
                 p.sex = match r["gender"].as_str() {
                     Some(g @ ("female" | "male")) => Some(g.to_string()),
+                    Some("other" | "unknown") => Some("unrecorded".to_string()),
                     _ => None,
                 };
                 p.birth_date = r["birthDate"]
@@ -580,7 +584,7 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
         Some(s) => writeln!(profile, "sex: {s}").expect("string"),
         None => writeln!(
             profile,
-            "# sex: female | male   ({}: fill it in)",
+            "# sex: female | male | unrecorded   ({}: fill it in)",
             gave(&p.unusable.0)
         )
         .expect("string"),
@@ -1133,10 +1137,8 @@ mod tests {
                 .1
         };
         let p1 = profile("p-1");
-        assert!(
-            p1.contains("# sex: female | male   (the FHIR Patient gives `unknown`: fill it in)\n"),
-            "{p1}"
-        );
+        // FHIR's `unknown` (and `other`): the record holds neither value.
+        assert!(p1.contains("\nsex: unrecorded\n"), "{p1}");
         assert!(
             p1.contains(
                 "# birth_date: YYYY-MM-DD   (the FHIR Patient gives `1980`: fill in the whole \
@@ -1153,7 +1155,12 @@ mod tests {
         );
         // An impossible date is not a birth date either; markup is not copied.
         let p3 = profile("p-3");
-        assert!(p3.contains("gives `bxb`: fill it in"), "{p3}");
+        assert!(
+            p3.contains(
+                "# sex: female | male | unrecorded   (the FHIR Patient gives `bxb`: fill it in)"
+            ),
+            "{p3}"
+        );
         assert!(p3.contains("gives `1990-02-30`"), "{p3}");
         assert!(!p3.contains('<'), "{p3}");
     }

@@ -159,7 +159,7 @@ fn participant(id: &str, weigh_ins: usize) -> ParticipantData {
         profile: Profile {
             id: id.into(),
             name: None,
-            sex: Sex::Female,
+            sex: Some(Sex::Female),
             birth_date: None,
             age_years: 40.0,
             height: Length::from_cm(165.0),

@@ -12,6 +12,32 @@ use serde::Deserialize;
 use std::collections::BTreeMap;
 
 /// `profile.yaml` as written.
+/// `sex:` as written in profile.yaml. `unrecorded` is a value of its own, not a missing key, so
+/// that a profile that forgot the key is still told so: a participant who did not give their sex
+/// (or whose record holds neither value) gets a report whose energy figures carry the added
+/// uncertainty, and the key's absence stays an error.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SexDef {
+    /// Female.
+    Female,
+    /// Male.
+    Male,
+    /// Not recorded (declined, neither, or unknown).
+    Unrecorded,
+}
+
+impl SexDef {
+    /// The sex the equations use; `None` when not recorded.
+    pub fn sex(self) -> Option<Sex> {
+        match self {
+            SexDef::Female => Some(Sex::Female),
+            SexDef::Male => Some(Sex::Male),
+            SexDef::Unrecorded => None,
+        }
+    }
+}
+
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ProfileDef {
@@ -20,8 +46,8 @@ pub struct ProfileDef {
     /// Display name (own report only).
     #[serde(default)]
     pub name: Option<String>,
-    /// `female` or `male`.
-    pub sex: Sex,
+    /// `female`, `male` or `unrecorded`.
+    pub sex: SexDef,
     /// Birth date (or `age`).
     #[serde(default)]
     pub birth_date: Option<NaiveDate>,
@@ -122,7 +148,7 @@ const PROFILE_KEYS: &[&str] = &[
 struct ProfileRead {
     id: Option<String>,
     name: Option<String>,
-    sex: Option<Sex>,
+    sex: Option<SexDef>,
     birth_date: Option<NaiveDate>,
     age: Option<f64>,
     height: Option<serde_yaml::Value>,
@@ -544,7 +570,7 @@ pub fn parse_profile(
     Some(Profile {
         id: def.id?,
         name,
-        sex: def.sex?,
+        sex: def.sex?.sex(),
         birth_date: def.birth_date,
         age_years: age_years?,
         height: height?,
@@ -631,7 +657,7 @@ flags: [glucose-lowering-medication]
         assert_eq!(p.targets.weight_change_percent, -7.0);
         assert_eq!(p.targets.activity_minutes_per_week, 150.0);
         assert_eq!(p.flags, vec!["glucose-lowering-medication"]);
-        assert_eq!(p.sex, Sex::Female);
+        assert_eq!(p.sex, Some(Sex::Female));
     }
 
     /// A misspelt medication flag used to be kept as written and matched nothing, so the report

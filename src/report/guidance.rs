@@ -217,11 +217,13 @@ impl Thresholds {
         }
     }
 
-    /// The intake floor for this person.
-    pub fn floor(&self, sex: Sex) -> f64 {
+    /// The intake floor for this person; the higher of the two when their sex is not recorded
+    /// (the careful side: nothing is suggested below either).
+    pub fn floor(&self, sex: Option<Sex>) -> f64 {
         match sex {
-            Sex::Female => self.floor_female,
-            Sex::Male => self.floor_male,
+            Some(Sex::Female) => self.floor_female,
+            Some(Sex::Male) => self.floor_male,
+            None => self.floor_female.max(self.floor_male),
         }
     }
 
@@ -574,7 +576,7 @@ pub fn regain_words(t: &TrendView, units: UnitSystem) -> Option<String> {
 /// Everything the wording needs besides the state.
 struct Facts {
     units: UnitSystem,
-    sex: Sex,
+    sex: Option<Sex>,
     withdrew: Option<NaiveDate>,
     /// Weigh-ins after `withdrew` are read as follow-up (`withdrawal_reason: stopped_program`).
     follow_up: bool,
@@ -1607,7 +1609,7 @@ mod tests {
     fn facts() -> Facts {
         Facts {
             units: UnitSystem::Metric,
-            sex: Sex::Female,
+            sex: Some(Sex::Female),
             withdrew: None,
             follow_up: false,
             weight_kg: Some(80.0),

@@ -254,6 +254,9 @@ pub fn build(
                 left.filter(|w| *w < plan.period.from),
                 unread == ActivityUnread::NoLog,
             );
+            if p.sex.is_none() && left.is_none_or(|w| w >= plan.period.from) {
+                view.explanation.push_str(SEX_NOT_RECORDED_WORDS);
+            }
             if let Some(w) = follow_up_after {
                 view.explanation.push_str(&format!(
                     " These figures use your records up to {}, the day you left: your food and activity logs end there, so your follow-up weigh-ins after it are not set against them.",
@@ -1072,6 +1075,11 @@ fn weight_chart(
         },
     )
 }
+
+/// Said in the energy section of someone whose sex is not recorded (`sex: unrecorded`): the
+/// energy module takes the mean of the equations' female and male forms and widens the ranges
+/// by their difference.
+const SEX_NOT_RECORDED_WORDS: &str = " Your sex is not recorded, so resting energy is the mean of the equation's female and male forms, and the ranges allow for the difference between them.";
 
 /// Less than this between a weigh-in source and the home scale, kg, is within the day-to-day
 /// scatter of the dots (program choice, as for the steps named in the chart's description).

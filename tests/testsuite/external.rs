@@ -75,7 +75,7 @@ fn participant(id: &str, steps: &[(NaiveDate, f64)]) -> ParticipantData {
         profile: Profile {
             id: id.into(),
             name: Some("Ines Varga-Holt".into()),
-            sex: Sex::Female,
+            sex: Some(Sex::Female),
             birth_date: Some(NaiveDate::from_ymd_opt(1981, 6, 12).unwrap()),
             age_years: 45.0,
             height: Length::from_cm(164.0),

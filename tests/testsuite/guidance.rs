@@ -744,3 +744,69 @@ fn the_followup_list_never_rounds_a_bmi_across_a_who_cut_off() {
         .expect("listed");
     assert!(row.contains(",73.8,18.4,"), "{row}");
 }
+
+/// A participant whose sex is not recorded was left out of the run ("missing field `sex`", or
+/// an unknown variant), so they got no report at all. With `sex: unrecorded` they get one: its
+/// resting energy is the mean of the female and male Mifflin–St Jeor forms (Mifflin et al. 1990,
+/// Am J Clin Nutr 51:241), and it says so (the wider intervals: the energy module's unit test).
+#[test]
+fn a_participant_whose_sex_is_not_recorded_gets_a_report() {
+    let t = ProgramTest::sample();
+    let yaml = t.dir.join("participants/SG-017/profile.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    let run = |sex: &str| {
+        std::fs::write(&yaml, text.replace("sex: female", &format!("sex: {sex}"))).unwrap();
+        let out = format!("{{dir}}/out-{sex}");
+        let r = t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            "2026-10-01",
+            "--formats",
+            "html",
+            "--only",
+            "SG-017",
+            "--out",
+            &out,
+        ]);
+        assert!(r.code <= 1, "{sex}: {}", r.stderr);
+        let dir = t.dir.join(format!("out-{sex}"));
+        let tidy = std::fs::read_to_string(dir.join("metrics/participants.csv")).unwrap();
+        let header: Vec<String> = tidy
+            .lines()
+            .next()
+            .unwrap()
+            .split(',')
+            .map(String::from)
+            .collect();
+        let row: Vec<String> = tidy
+            .lines()
+            .nth(1)
+            .unwrap()
+            .split(',')
+            .map(String::from)
+            .collect();
+        let col = |name: &str| -> f64 {
+            row[header.iter().position(|h| h == name).unwrap()]
+                .parse()
+                .unwrap()
+        };
+        let html = std::fs::read_to_string(dir.join("participants/SG-017.html")).unwrap();
+        (col("energy.rmr_kcal_per_day"), html)
+    };
+    let (f, m, u) = (run("female"), run("male"), run("unrecorded"));
+    assert!((m.0 - f.0 - 166.0).abs() < 1e-6, "{} {}", f.0, m.0);
+    assert!(
+        (u.0 - (f.0 + m.0) / 2.0).abs() < 1e-6,
+        "{} {} {}",
+        f.0,
+        m.0,
+        u.0
+    );
+    let said = "Your sex is not recorded, so resting energy is the mean of the equation";
+    assert!(u.1.contains(said), "{}", u.1);
+    assert!(!f.1.contains(said) && !m.1.contains(said));
+    // `check` has nothing to say about the profile.
+    let r = t.run(&["check", "{dir}", "--as-of", "2026-10-01", "--verbose"]);
+    assert!(!r.stdout.contains("SG-017/profile.yaml"), "{}", r.stdout);
+}

@@ -45,7 +45,7 @@ pub fn participant_data(p: &Person, targets: &Targets) -> ParticipantData {
     let profile = Profile {
         id: format!("SIM-{:04}", p.index),
         name: None,
-        sex: if p.male { Sex::Male } else { Sex::Female },
+        sex: Some(if p.male { Sex::Male } else { Sex::Female }),
         birth_date: None,
         age_years: p.age.floor(),
         height: Length::from_cm((p.height_cm * 10.0).round() / 10.0),

@@ -22,7 +22,7 @@ fn profile(enrolled: &str) -> Profile {
     Profile {
         id: "T-001".into(),
         name: None,
-        sex: Sex::Female,
+        sex: Some(Sex::Female),
         birth_date: None,
         age_years: 45.0,
         height: Length::from_cm(165.0),

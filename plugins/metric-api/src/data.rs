@@ -26,8 +26,12 @@ pub struct Profile {
     pub id: String,
     /// Display name, shown only in the participant's own report.
     pub name: Option<String>,
-    /// Sex for the energy equations.
-    pub sex: Sex,
+    /// Sex for the energy equations; `None` when the profile says it is not recorded
+    /// (`sex: unrecorded`): the equations then take the mean of the female and male forms with
+    /// their difference as added uncertainty, and the safety floors take the higher value.
+    /// Absent from the protocol's JSON when not recorded.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sex: Option<Sex>,
     /// Birth date, when given.
     pub birth_date: Option<NaiveDate>,
     /// Age in whole years at enrolment (from `birth_date`, or as given).

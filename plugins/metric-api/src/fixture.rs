@@ -96,7 +96,7 @@ pub fn participant() -> ParticipantData {
         profile: Profile {
             id: "FX-001".into(),
             name: None,
-            sex: Sex::Female,
+            sex: Some(Sex::Female),
             birth_date: None,
             age_years: 52.0,
             height: Length::from_cm(165.0),

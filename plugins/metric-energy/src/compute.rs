@@ -367,10 +367,28 @@ fn days_incl(from: NaiveDate, to: NaiveDate) -> i64 {
     (to - from).num_days() + 1
 }
 
+/// A sex-specific figure (a resting-energy equation, a body-fat equation) for a person whose sex
+/// is recorded: (value, 0). When it is not: the mean of the female and male forms and half their
+/// difference, the SD of an even two-point mixture. For Mifflin–St Jeor that is 83 kcal/d (the
+/// forms differ only in their constant, +5 and −161; Mifflin et al. 1990, Am J Clin Nutr 51:241).
+fn either_sex(sex: Option<Sex>, f: impl Fn(Sex) -> f64) -> (f64, f64) {
+    match sex {
+        Some(sex) => (f(sex), 0.0),
+        None => {
+            let (a, b) = (f(Sex::Female), f(Sex::Male));
+            ((a + b) / 2.0, (a - b).abs() / 2.0)
+        }
+    }
+}
+
 /// Everything about the person the formulas need.
 struct Person<'a> {
     data: &'a ParticipantData,
-    sex: Sex,
+    /// `None`: not recorded (see [`either_sex`]).
+    sex: Option<Sex>,
+    /// SD of resting energy from not knowing the person's sex, as a fraction of RMR₀ (0 when
+    /// recorded); added to [`RMR_REL_SD`] in the baseline requirement's prior.
+    sex_rel_sd: f64,
     height_cm: f64,
     equation: RestingEquation,
     model: HallModel,
@@ -394,8 +412,11 @@ impl Person<'_> {
             .needs_lean_mass()
             .then(|| self.model.lean_for_fat(self.model.fat_for_weight(bw)));
         let age = self.data.profile.age_on(d);
-        self.equation
-            .resting_energy(self.sex, bw, self.height_cm, age, lean)
+        either_sex(self.sex, |sex| {
+            self.equation
+                .resting_energy(sex, bw, self.height_cm, age, lean)
+        })
+        .0
     }
 
     /// Body weight on day `d`: the trend level on or before `d`, else the last weigh-in on or
@@ -536,10 +557,13 @@ impl Person<'_> {
         }
     }
 
+    /// The intake floor for the person's sex; the higher of the two when it is not recorded
+    /// (the careful side: no option is offered below either).
     fn floor(&self, s: &Settings) -> f64 {
         match self.sex {
-            Sex::Female => s.floor_female,
-            Sex::Male => s.floor_male,
+            Some(Sex::Female) => s.floor_female,
+            Some(Sex::Male) => s.floor_male,
+            None => s.floor_female.max(s.floor_male),
         }
     }
 }
@@ -744,11 +768,17 @@ fn start<'a>(
     let (bf0, bf_source) = match data.profile.body_fat_percent {
         Some(bf) => (bf, BodyFatSource::Measured),
         None => (
-            jackson_2002_body_fat(
-                sex,
-                data.bmi(cohortpress_metric_api::units::Mass::from_kg(bw0)),
-                age0,
-            ),
+            // Not recorded: the mean of the two forms (2.7 points of body fat apart at BMI 30);
+            // the model's energy partition depends on it only weakly (Forbes 2000), so its
+            // spread is not carried further.
+            either_sex(sex, |sex| {
+                jackson_2002_body_fat(
+                    sex,
+                    data.bmi(cohortpress_metric_api::units::Mass::from_kg(bw0)),
+                    age0,
+                )
+            })
+            .0,
             BodyFatSource::Jackson2002,
         ),
     };
@@ -770,10 +800,13 @@ fn start<'a>(
         equation = RestingEquation::MifflinStJeor;
     }
     let lean0 = equation.needs_lean_mass().then_some(bw0 - fm0);
-    let rmr0 = equation.resting_energy(sex, bw0, height_cm, age0, lean0);
+    let (rmr0, rmr0_sex_sd) = either_sex(sex, |sex| {
+        equation.resting_energy(sex, bw0, height_cm, age0, lean0)
+    });
     let person = Person {
         data,
         sex,
+        sex_rel_sd: rmr0_sex_sd / rmr0.max(1.0),
         height_cm,
         equation,
         model: HallModel::new(bw0, fm0, rmr0, s.base_pal),

@@ -189,7 +189,7 @@ fn implied_intake_interval_covers_the_true_intake() {
             profile: Profile {
                 id: "SIM".into(),
                 name: None,
-                sex: Sex::Male,
+                sex: Some(Sex::Male),
                 birth_date: None,
                 age_years: 40.0,
                 height: Length::from_cm(180.0),

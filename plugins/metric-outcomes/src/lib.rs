@@ -471,11 +471,13 @@ fn test_words(t: LabTest) -> &'static str {
 }
 
 /// Category code of one lab result.
-fn lab_category(lab: &LabResult, sex: Sex) -> LabCategory {
+/// A waist without a recorded sex has no class: the cut-offs are sex-specific, and either pair
+/// would mislabel half of the people.
+fn lab_category(lab: &LabResult, sex: Option<Sex>) -> LabCategory {
     match lab.test {
         LabTest::FastingGlucose => fasting_glucose_class(lab.value),
         LabTest::Hba1c => hba1c_class(lab.value),
-        LabTest::Waist => waist_class(lab.value, sex),
+        LabTest::Waist => sex.map_or(LabCategory::Recorded, |sex| waist_class(lab.value, sex)),
         LabTest::SystolicBp | LabTest::DiastolicBp => LabCategory::Recorded,
     }
 }
@@ -1150,7 +1152,7 @@ fn milestones_table(w0: Option<f64>, levels: &[(NaiveDate, f64)]) -> Table {
 }
 
 /// The lab results with their categories and converted values.
-fn labs_table(labs: &[&LabResult], sex: Sex) -> Table {
+fn labs_table(labs: &[&LabResult], sex: Option<Sex>) -> Table {
     Table {
         name: names::LABS.into(),
         label: LABS_LABEL.into(),
@@ -1419,9 +1421,13 @@ fn push_intake_flags(
         .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
         .map(|i| i.kcal)
         .collect();
+    let female = || ctx.setting_f64("intake_floor_female", 1200.0);
+    let male = || ctx.setting_f64("intake_floor_male", 1500.0);
+    // Sex not recorded: the higher floor (the careful side for a flag).
     let floor = match profile.sex {
-        Sex::Female => ctx.setting_f64("intake_floor_female", 1200.0),
-        Sex::Male => ctx.setting_f64("intake_floor_male", 1500.0),
+        Some(Sex::Female) => female(),
+        Some(Sex::Male) => male(),
+        None => female().max(male()),
     };
     let very_low = ctx.setting_f64("very_low_intake", 800.0);
     let days = intake.len();
@@ -1516,7 +1522,14 @@ fn push_below_resting_flag(
     }
     // Resting energy expenditure, kcal/d (Mifflin et al. 1990, Am J Clin Nutr 51:241), at the
     // current trend weight and the age at the period's end.
-    let rmr = mifflin_st_jeor(profile.sex, kg, height_cm, profile.age_on(to));
+    // Sex not recorded: the male form, 166 kcal/d above the female one, so that intake below
+    // resting energy is flagged rather than missed (the careful side for a flag).
+    let rmr = mifflin_st_jeor(
+        profile.sex.unwrap_or(Sex::Male),
+        kg,
+        height_cm,
+        profile.age_on(to),
+    );
     let from = (to - Duration::days(BELOW_RESTING_WINDOW_DAYS - 1)).max(profile.enrolled);
     // "For weeks": a window cut short by a recent enrolment must still hold two of them.
     let days = (to - from).num_days() + 1;
@@ -1643,7 +1656,7 @@ fn cut_words(v: f64) -> String {
 }
 
 /// The lab-range flags, judged on the latest value of each test.
-fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Sex) {
+fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Sex>) {
     let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
     for l in labs {
         latest.insert(l.test, l);
@@ -1727,6 +1740,35 @@ mod tests {
 
     fn d(s: &str) -> NaiveDate {
         s.parse().unwrap()
+    }
+
+    /// A waist without a recorded sex gets no risk class: 85 cm is "increased risk" for a woman
+    /// and "not increased" for a man (WHO 2011), and either label would be wrong for half of the
+    /// people. The other tests do not depend on sex.
+    #[test]
+    fn a_waist_without_a_recorded_sex_has_no_risk_class() {
+        let lab = |test: LabTest, value: f64| LabResult {
+            date: d("2027-03-01"),
+            test,
+            value,
+            unit_as_written: "cm".into(),
+            value_as_written: value,
+        };
+        let waist = lab(LabTest::Waist, 85.0);
+        assert_eq!(
+            lab_category(&waist, Some(Sex::Female)),
+            LabCategory::IncreasedRisk
+        );
+        assert_eq!(
+            lab_category(&waist, Some(Sex::Male)),
+            LabCategory::NotIncreasedRisk
+        );
+        assert_eq!(lab_category(&waist, None), LabCategory::Recorded);
+        let a1c = lab(LabTest::Hba1c, 6.5);
+        assert_eq!(
+            lab_category(&a1c, None),
+            lab_category(&a1c, Some(Sex::Male))
+        );
     }
 
     /// 29.97 printed as "30.0" beside the class "25 to 29.9"; 18.46 as "about 18.5 kg/m², below

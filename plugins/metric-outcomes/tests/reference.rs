@@ -226,7 +226,7 @@ fn participant(sex: Sex, height_cm: f64) -> ParticipantData {
         profile: Profile {
             id: "T-002".into(),
             name: None,
-            sex,
+            sex: Some(sex),
             birth_date: None,
             age_years: 50.0,
             height: Length::from_cm(height_cm),
@@ -538,7 +538,7 @@ fn intake_flags() {
     );
     assert!(run(&c, &p).flags.is_empty());
     let mut man = p.clone();
-    man.profile.sex = Sex::Male;
+    man.profile.sex = Some(Sex::Male);
     assert_eq!(codes(&run(&c, &man)), vec!["low_intake"]);
 
     // Four days averaging 750: very low (Clinical), and not also "low".
@@ -827,7 +827,7 @@ fn lab(k: i64, test: LabTest, value: f64, unit: &str, as_written: f64) -> LabRes
 #[test]
 fn labs_table_and_lab_flags() {
     let mut p = steady_loser();
-    p.profile.sex = Sex::Male;
+    p.profile.sex = Some(Sex::Male);
     p.labs = vec![
         lab(1, LabTest::Hba1c, 7.0, "%", 7.0),
         lab(1, LabTest::FastingGlucose, 7.0, "mmol/L", 7.0),

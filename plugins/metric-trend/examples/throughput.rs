@@ -65,7 +65,7 @@ fn main() {
                 profile: Profile {
                     id: format!("P{i}"),
                     name: None,
-                    sex: Sex::Male,
+                    sex: Some(Sex::Male),
                     birth_date: None,
                     age_years: 40.0,
                     height: Length::from_cm(175.0),

@@ -45,7 +45,7 @@ fn participant(weights: &[(i64, f64)]) -> ParticipantData {
         profile: Profile {
             id: "T-001".into(),
             name: None,
-            sex: Sex::Female,
+            sex: Some(Sex::Female),
             birth_date: None,
             age_years: 45.0,
             height: Length::from_cm(168.0),

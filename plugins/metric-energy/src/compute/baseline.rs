@@ -186,7 +186,7 @@ fn log_day_cv(p: &Person<'_>, bounds: &[(NaiveDate, NaiveDate)]) -> f64 {
 ///
 /// # Method
 /// Prior: EI₀ ~ N(RMR₀ × `base_pal`, (RMR₀·`base_pal`·r)²) with r = √((`pal_sd`/PAL)² +
-/// RMR_REL_SD²), u ~ N(`underreporting_prior_percent`, `underreporting_sd_percent`), by
+/// RMR_REL_SD² + s²), s the relative SD of RMR₀ from a sex not recorded (0 when it is), u ~ N(`underreporting_prior_percent`, `underreporting_sd_percent`), by
 /// default 20 % ± 12 points. The record is cut into four-week blocks b; in each
 /// the weight trend implies the intake EI₀ + D_b (D_b from the block's mean level and exact
 /// slope, [`Person::implied_intake`]) and the log gives the weekday-balanced mean L_b, so
@@ -208,7 +208,9 @@ pub(super) fn baseline_requirement(
     to: NaiveDate,
 ) -> Baseline {
     let prior = p.model.ei0;
-    let rel = ((s.pal_sd / p.model.pal).powi(2) + RMR_REL_SD * RMR_REL_SD).sqrt();
+    let rel =
+        ((s.pal_sd / p.model.pal).powi(2) + RMR_REL_SD * RMR_REL_SD + p.sex_rel_sd * p.sex_rel_sd)
+            .sqrt();
     let sd0 = prior * rel;
     let fallback = Baseline {
         ei0: prior,

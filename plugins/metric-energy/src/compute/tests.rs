@@ -19,7 +19,7 @@ fn profile(sex: Sex, height_cm: f64, age: f64, enrolled: NaiveDate) -> Profile {
     Profile {
         id: "P-1".into(),
         name: None,
-        sex,
+        sex: Some(sex),
         birth_date: None,
         age_years: age,
         height: Length::from_cm(height_cm),
@@ -1402,4 +1402,65 @@ fn someone_who_left_before_the_period_gets_no_energy_figures_for_it() {
     // The options give no amount.
     let opt = out.table("options").unwrap();
     assert_eq!(cell_num(opt, 0, "change_per_day"), None);
+}
+
+/// A person whose sex is not recorded (`sex: unrecorded`) used to get no report at all. The
+/// resting energy is now the mean of the female and male Mifflin–St Jeor forms (Mifflin et al.
+/// 1990, Am J Clin Nutr 51:241: they differ only in the constant, +5 and −161), the implied
+/// intake's interval is wider by that difference (half of 166 kcal/d as an added SD of resting
+/// energy), and the options' floor is the higher of the two (1,500 kcal/d).
+#[test]
+fn a_sex_not_recorded_takes_the_mean_equation_a_wider_interval_and_the_higher_floor() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-02-01"),
+        to: d("2027-02-28"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let run = |sex: Option<Sex>| {
+        let mut p = profile(Sex::Female, 165.0, 45.0, enrolled);
+        p.sex = sex;
+        let mut data = data(p);
+        let weights: Vec<f64> = (0..n).map(|i| 80.0 - 0.05 * i as f64).collect();
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        let mut c = ctx(
+            enrolled,
+            d("2027-06-30"),
+            period,
+            serde_json::json!({"target_loss_kg_per_week": 0.9}),
+        );
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, 0.4, 0.01, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    let (f, m, u) = (run(Some(Sex::Female)), run(Some(Sex::Male)), run(None));
+    let rmr = |o: &ModuleOutput| o.scalar("rmr_kcal_per_day").unwrap();
+    assert!((rmr(&m) - rmr(&f) - 166.0).abs() < 1e-9);
+    assert!((rmr(&u) - (rmr(&f) + 83.0)).abs() < 1e-9, "{}", rmr(&u));
+    let width = |o: &ModuleOutput| {
+        o.scalar("implied_intake_upper_kcal_per_day").unwrap()
+            - o.scalar("implied_intake_lower_kcal_per_day").unwrap()
+    };
+    assert!(
+        width(&u) > width(&f) + 10.0,
+        "{} vs {}",
+        width(&u),
+        width(&f)
+    );
+    assert!(
+        width(&u) > width(&m) + 10.0,
+        "{} vs {}",
+        width(&u),
+        width(&m)
+    );
+    // The intake cut for 0.9 kg/week is checked against 1,500, not 1,200.
+    let opt = u.table("options").unwrap();
+    assert_eq!(cell_text(opt, 0, "kind"), "intake");
+    assert!(
+        cell_text(opt, 0, "reason").contains("below 1500"),
+        "{}",
+        cell_text(opt, 0, "reason")
+    );
 }
