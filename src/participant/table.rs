@@ -1523,7 +1523,41 @@ fn read_records(
                     header_text(written.iter().map(|h| h.as_str()).collect())
                 ))
                 .found(format!("`{}`", header_text(cells)))
-                .hint("the file joins exports with different columns: split it into two files, or give the second part the first part's columns in its order"),
+                .hint(format!(
+                    "the file joins exports with different columns, and a participant has one {}: give the rows below line {line} the first header's columns, in its order, and delete this line",
+                    spec.name
+                )),
+            );
+            return None;
+        }
+        // The header of another export pasted below this one's rows (a home scale app's
+        // weigh-ins, then the clinic's export, with other columns and perhaps another
+        // delimiter): each of its rows was dropped as a row of the wrong shape with a hint to
+        // quote text, the header itself among them, and the clinic's weigh-ins were lost
+        // with a run that ended "with warnings". As for a header in another order, the rows
+        // below it cannot be read under the first header's columns.
+        if let Some((as_written, named)) = other_export_header(&rec, delimiter, spec, opts) {
+            diags.append(&mut extra);
+            diags.push(
+                ctx.error(format!(
+                    "line {line} is the header of another export, not a row (`{named}` is a column name); the rows below it cannot be read under the first header's columns, and the file is not used"
+                ))
+                .at(line, Some(1))
+                .expected(format!(
+                    "rows under the header on line {header_line}: `{}`",
+                    written.join(&delim_text)
+                ))
+                .found(format!("`{}`", shorten(&as_written, 200)))
+                .hint(if spec.name == "weights.csv" {
+                    format!(
+                        "a participant has one weights.csv, with every weigh-in under one header: give the rows below line {line} the first header's columns (with their unit, and a `source` column such as `clinic` to tell them from home weigh-ins) and delete this line"
+                    )
+                } else {
+                    format!(
+                        "a participant has one {}, with one header: give the rows below line {line} the first header's columns, in its order, and delete this line",
+                        spec.name
+                    )
+                }),
             );
             return None;
         }
@@ -2010,6 +2044,85 @@ fn near_ours(key: &str, spec: &FileSpec) -> bool {
             || (d == 2 && (letters >= 5 || (letters == 4 && same_letters(c))))
             || c.split('_').all(|part| words.contains(&part))
     }) || spec.aliases.iter().any(|(a, _)| distance(a) <= 1)
+}
+
+/// The column of ours a header cell names, as the header row is read: the program's mapping
+/// (`input.columns`), our own names, the built-in aliases, or a name with a unit suffix
+/// (`weight_kg`).
+fn column_named(name: &str, spec: &FileSpec, opts: &CsvOptions) -> Option<&'static str> {
+    let (key, unit) = header_key(name);
+    let ours = |k: &str| spec.all_columns().find(|c| *c == k);
+    let alias = |k: &str| {
+        spec.aliases
+            .iter()
+            .find(|(a, _)| *a == k)
+            .and_then(|(_, c)| ours(c))
+    };
+    if let Some((c, _)) = opts
+        .columns
+        .get(spec.kind())
+        .and_then(|m| m.get(&key))
+        .and_then(|t| spec.mapping_target(t))
+    {
+        return Some(c);
+    }
+    ours(&key).or_else(|| alias(&key)).or_else(|| {
+        if unit.is_some() {
+            return None;
+        }
+        let (base, u) = key.rsplit_once('_')?;
+        let c = ours(base).or_else(|| alias(base))?;
+        spec.header_units
+            .iter()
+            .any(|(v, allowed, _)| *v == c && allowed.contains(&u))
+            .then_some(c)
+    })
+}
+
+/// A row that is the header of another export (`Visit Date,Patient Ref,Weight (lb),…` below a
+/// scale app's rows): at least two cells, none of them a date or a number, and one naming a
+/// column of ours other than the date. A row of one field (the other export used another
+/// delimiter) is split at the comma, semicolon or tab that gives it the most cells. Returns the
+/// line as written (its cells trimmed) and the first cell naming a column of ours.
+fn other_export_header(
+    rec: &csv::StringRecord,
+    delimiter: u8,
+    spec: &FileSpec,
+    opts: &CsvOptions,
+) -> Option<(String, String)> {
+    let (fields, as_written): (Vec<&str>, String) = if rec.len() == 1 {
+        let f = rec.get(0)?;
+        let fields = [',', ';', '\t']
+            .iter()
+            .map(|&d| f.split(d).collect::<Vec<_>>())
+            .max_by_key(Vec::len)?;
+        (fields, f.trim().to_string())
+    } else {
+        let fields: Vec<&str> = rec.iter().collect();
+        let joined = fields
+            .iter()
+            .map(|f| f.trim())
+            .collect::<Vec<_>>()
+            .join(&(delimiter as char).to_string());
+        (fields, joined)
+    };
+    let cells: Vec<String> = fields
+        .iter()
+        .map(|f| f.trim().to_string())
+        .filter(|f| !f.is_empty())
+        .collect();
+    if cells.len() < 2
+        || cells
+            .iter()
+            .any(|c| parse_when(c, opts).is_some() || parse_decimal(c).is_ok())
+    {
+        return None;
+    }
+    let named = cells
+        .iter()
+        .find(|c| column_named(c, spec, opts).is_some_and(|col| col != "date"))?
+        .clone();
+    Some((as_written, named))
 }
 
 fn column_list(spec: &FileSpec) -> String {
@@ -3280,6 +3393,65 @@ mod tests {
                 .message
                 .contains("repeated inside the file (first on line 3"),
         );
+    }
+
+    /// A home scale app's export with the clinic's export pasted below it (one weights.csv
+    /// per participant): each clinic row was dropped as "row has 6 fields but the header has
+    /// 4" with a hint to quote text, the clinic's header line among them, and the run ended
+    /// with warnings only. The line is named as the header it is, and the file is refused
+    /// there, as for a header in another order.
+    #[test]
+    fn the_header_of_another_export_below_the_rows_refuses_the_file_there() {
+        let weights = crate::program::files::WEIGHTS;
+        let read_weights = |text: &str| {
+            let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+            let mut d = Vec::new();
+            let t = read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
+            (t, d)
+        };
+        // The same delimiter, other columns.
+        let text = "Date,Time,Weight (kg),Notes\n2026-09-07,07:10,81.5,\n2026-09-09,07:02,81.2,\n\
+                    Visit Date,Patient Ref,Clinician,Weight (lb),Height (in),Comments\n\
+                    2026-09-07,TF-11,Nurse A,161.6,64,\n";
+        let (t, d) = read_weights(text);
+        assert!(t.is_none(), "the file is not used");
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(4), Some(1)));
+        assert_eq!(
+            d[0].message,
+            "line 4 is the header of another export, not a row (`Weight (lb)` is a column \
+             name); the rows below it cannot be read under the first header's columns, and the \
+             file is not used"
+        );
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("rows under the header on line 1: `Date,Time,Weight (kg),Notes`")
+        );
+        assert_eq!(
+            d[0].found.as_deref(),
+            Some("`Visit Date,Patient Ref,Clinician,Weight (lb),Height (in),Comments`")
+        );
+        assert!(
+            d[0].hint.as_deref().is_some_and(|h| h
+                .starts_with("a participant has one weights.csv, with every weigh-in under one header: give the rows below line 4")
+                && h.contains("`source` column")),
+            "{:?}",
+            d[0].hint
+        );
+        // A semicolon export (decimal commas, CRLF) with a comma export pasted below: the
+        // clinic's lines are one field each; shown as written.
+        let text = "Date;Weight (kg)\r\n07/09/2026;81,5\r\n09/09/2026;81,2\r\n\
+                    Visit Date,Weight (lb)\r\n2026-09-21,178.0\r\n";
+        let (t, d) = read_weights(text);
+        assert!(t.is_none());
+        assert_eq!((d[0].line, d[0].column), (Some(4), Some(1)), "{d:#?}");
+        assert_eq!(d[0].found.as_deref(), Some("`Visit Date,Weight (lb)`"));
+        // Rows of text that name no column of ours, or hold a date or a number, are rows.
+        let text = "Date,Weight (kg),Notes\n2026-09-07,81.5,fine\nAverage,81.4,\nnot weighed,away,\n";
+        let (t, d) = read_weights(text);
+        assert!(t.is_some(), "{d:#?}");
+        assert!(d.iter().all(|x| x.severity != crate::diag::Severity::Error), "{d:#?}");
     }
 
     /// Exports of two app versions joined, the second with its columns in another order: the
