@@ -1272,6 +1272,37 @@ fn read_records(
             }
         }
     }
+    // A column a letter or two from one of ours that the file reads already, under its own
+    // name (a clinic's `Height (in)` beside `Weight (lb)`), is another measurement, not ours
+    // misspelt: named in the note of columns not read. Its warning ended every run on such a
+    // standard export "with warnings" (exit code 1). One holding ours as a word (`Weight 2`)
+    // keeps its warning.
+    let mut k = 0;
+    while k < extra_at.len() {
+        let i = extra_at[k];
+        let key = header_key(&written[i]).0;
+        let near = near_by_spelling(&key, spec);
+        if !near.is_empty()
+            && !holds_ours(&key, spec)
+            && near.iter().all(|c| columns.contains_key(c))
+        {
+            extra_at.remove(k);
+            extra.remove(k);
+            // In the header's order, as the other columns not read are named.
+            let at = ignored
+                .iter()
+                .position(|n| {
+                    written
+                        .iter()
+                        .position(|w| format!("`{w}`") == *n)
+                        .is_some_and(|j| j > i)
+                })
+                .unwrap_or(ignored.len());
+            ignored.insert(at, format!("`{}`", written[i]));
+        } else {
+            k += 1;
+        }
+    }
     // Dates written as rows of their own above the measurements, which have only a time of
     // day (`Time,Weight,…` / `" Nov 25, 2026",` / `7:12 AM,72.5 kg,…`: a smart scale app's
     // export): whether they are is known once the rows are read.
@@ -2024,10 +2055,11 @@ fn shorten(s: &str, max: usize) -> String {
 /// `kcal`) and a scale's `Note` (two from `date`) were warned about as ours misspelt, and every
 /// run on such a standard export ended "with warnings".
 fn near_ours(key: &str, spec: &FileSpec) -> bool {
-    let words: Vec<&str> = key
-        .split(|c: char| !c.is_alphanumeric())
-        .filter(|w| !w.is_empty())
-        .collect();
+    !near_by_spelling(key, spec).is_empty() || holds_ours(key, spec)
+}
+
+/// The columns of ours `key` is a spelling slip of, by the edit rules of [`near_ours`].
+fn near_by_spelling(key: &str, spec: &FileSpec) -> Vec<&'static str> {
     let distance = |c: &str| crate::activities::edit_distance(key, c);
     let same_letters = |c: &str| {
         let sorted = |s: &str| {
@@ -2037,13 +2069,28 @@ fn near_ours(key: &str, spec: &FileSpec) -> bool {
         };
         sorted(key) == sorted(c)
     };
-    spec.all_columns().any(|c| {
-        let d = distance(c);
-        let letters = c.chars().count();
-        d <= 1
-            || (d == 2 && (letters >= 5 || (letters == 4 && same_letters(c))))
-            || c.split('_').all(|part| words.contains(&part))
-    }) || spec.aliases.iter().any(|(a, _)| distance(a) <= 1)
+    spec.all_columns()
+        .filter(|c| {
+            let d = distance(c);
+            let letters = c.chars().count();
+            d <= 1 || (d == 2 && (letters >= 5 || (letters == 4 && same_letters(c))))
+        })
+        .collect()
+}
+
+/// Whether `key` holds a column name of ours as a whole word (`weight_2`) or is one edit from
+/// an alias: by the rules of [`near_ours`] other than a slip in one of our names.
+fn holds_ours(key: &str, spec: &FileSpec) -> bool {
+    let words: Vec<&str> = key
+        .split(|c: char| !c.is_alphanumeric())
+        .filter(|w| !w.is_empty())
+        .collect();
+    spec.all_columns()
+        .any(|c| c.split('_').all(|part| words.contains(&part)))
+        || spec
+            .aliases
+            .iter()
+            .any(|(a, _)| crate::activities::edit_distance(key, a) <= 1)
 }
 
 /// The column of ours a header cell names, as the header row is read: the program's mapping
@@ -3452,6 +3499,41 @@ mod tests {
         let (t, d) = read_weights(text);
         assert!(t.is_some(), "{d:#?}");
         assert!(d.iter().all(|x| x.severity != crate::diag::Severity::Error), "{d:#?}");
+    }
+
+    /// A clinic export's `Height (in)` beside `Weight (lb)` is one letter from `weight`, and
+    /// was warned about as our column misspelt ("check its spelling"), so every run on such an
+    /// export ended with warnings (exit code 1). The file reads `weight` already: it is a
+    /// column not read, in the note. A slip of a column the file lacks, or one holding ours as
+    /// a word, is still warned about.
+    #[test]
+    fn a_column_a_letter_from_one_the_file_reads_already_is_not_warned_about() {
+        let weights = crate::program::files::WEIGHTS;
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text = "Visit Date,Clinician,Weight (lb),Height (in),Comments\n2026-09-07,Nurse A,181.0,64,\n";
+        let t = read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
+        assert!(d.is_empty(), "{d:#?}");
+        assert_eq!(t.unwrap().rows.len(), 1);
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        assert!(
+            notes.iter().any(|n| n.starts_with(
+                "columns `Clinician`, `Height (in)`, `Comments` are not read"
+            )),
+            "{notes:#?}"
+        );
+        // `Weight 2` holds `weight` as a word: still warned about beside `Weight`.
+        let mut d = Vec::new();
+        let text = "Date,Weight,Weight 2,Unit\n2026-09-07,81.5,81.6,kg\n";
+        read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!(d[0].message, "extra column `Weight 2` is ignored");
+        // `sorce` is a slip of `source`, which the file does not read: still warned about.
+        let mut d = Vec::new();
+        let text = "Date,Weight,Unit,sorce\n2026-09-07,81.5,kg,home\n";
+        read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!(d[0].message, "extra column `sorce` is ignored");
     }
 
     /// Exports of two app versions joined, the second with its columns in another order: the
