@@ -2546,3 +2546,32 @@ fn an_activity_across_a_daylight_saving_change_lasts_what_it_lasted_in_the_progr
         ]
     );
 }
+
+/// A weigh-in row pasted twice in an export without times (`07/09/2026,81.5,home scale`): both
+/// are read (two weigh-ins can read the same), and the README promised `check` notes them, but
+/// only intake and activity files had the note: the weights file said nothing.
+#[test]
+fn identical_weigh_ins_without_a_time_are_read_and_noted() {
+    let c = ctx("weights.csv");
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date,weight,unit,source\n2026-04-02,81.5,kg,home scale\n2026-04-03,81.2,kg,home scale\n\
+         2026-04-02,81.5,kg,home scale\n2026-04-04,81.0,kg,clinic\n2026-04-04,81.0,kg,home scale\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 5, "each is read");
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.contains(
+            &"identical weigh-ins without a time of day on the same day are each read as a \
+              weigh-in: 2026-04-02 (lines 2, 4); delete one only if it was entered twice"
+                .to_string()
+        ),
+        "{notes:#?}"
+    );
+}
