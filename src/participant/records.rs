@@ -2078,7 +2078,16 @@ pub fn parse_activity(
                     c.warn("minutes", "a duration with one colon could be minutes:seconds or hours:minutes, and no duration of the file tells which; the row is dropped")
                         .expected("minutes (`45`), a clock duration h:mm:ss (`0:45:00`) or a duration with units (`45 min`, `1 h 15 min`)")
                         .found(format!("`{raw}`"))
-                        .hint("export durations as h:mm:ss or in minutes"),
+                        // The fix the README gives (a clock form in the header) was not
+                        // named: only a new export, which the app may not offer.
+                        .hint(format!(
+                            "say which in the column's header: `{h} (h:mm)` for hours:minutes or `{h} (mm:ss)` for minutes:seconds; or export durations as h:mm:ss or in minutes",
+                            h = c
+                                .table
+                                .header_written("minutes")
+                                .and_then(|h| h.split(" (").next())
+                                .unwrap_or("Duration")
+                        )),
                 );
                 return None;
             }

@@ -253,6 +253,11 @@ impl Table {
         self.units.get(col).map(String::as_str)
     }
 
+    /// The header of column `col` as the file writes it (`Duration`).
+    pub fn header_written(&self, col: &str) -> Option<&str> {
+        self.headers.get(col).map(String::as_str)
+    }
+
     /// Whether a field of `row` outside our columns (a `Meal` column, say) holds one of
     /// `labels` (lowercase), whatever its case, spacing or final colon (`TOTAL:`).
     pub fn row_labelled(&self, row: &Row, labels: &[&str]) -> bool {

@@ -2575,3 +2575,28 @@ fn identical_weigh_ins_without_a_time_are_read_and_noted() {
         "{notes:#?}"
     );
 }
+
+/// A one-colon duration nothing in the file settles (`0:45`): the hint named only a new
+/// export, not the header form the README gives (`Duration (h:mm)`), which reads them as is.
+#[test]
+fn an_unsettled_one_colon_duration_names_the_header_that_settles_it() {
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration\n2026-04-01,brisk walk,0:45\n2026-04-02,Yoga,30\n",
+    );
+    assert_eq!(a.unwrap().len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(
+        diags[0].hint.as_deref(),
+        Some(
+            "say which in the column's header: `Duration (h:mm)` for hours:minutes or \
+             `Duration (mm:ss)` for minutes:seconds; or export durations as h:mm:ss or in minutes"
+        )
+    );
+    // The header the hint gives reads the file.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h:mm)\n2026-04-01,brisk walk,0:45\n2026-04-02,Yoga,1:30\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [45.0, 90.0]);
+}
