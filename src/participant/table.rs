@@ -1647,15 +1647,15 @@ fn read_records(
         if !fits {
             let mut d = ctx
                 .warning(format!(
-                    "row has {} fields but the header has {}; the row is dropped",
-                    rec.len(),
+                    "row has {} but the header has {}; the row is dropped",
+                    fields(rec.len()),
                     names.len()
                 ))
                 .at(line, None)
-                .expected(format!("{} fields", names.len()))
+                .expected(fields(names.len()))
                 .found(format!(
-                    "{} fields: `{}`",
-                    rec.len(),
+                    "{}: `{}`",
+                    fields(rec.len()),
                     shorten(
                         &rec.iter()
                             .take(MAX_CSV_COLUMNS + 1)
@@ -2175,6 +2175,15 @@ fn other_export_header(
         .find(|c| column_named(c, spec, opts).is_some_and(|col| col != "date"))?
         .clone();
     Some((as_written, named))
+}
+
+/// `1 field`, `4 fields` ("row has 1 fields" read as a slip of ours).
+fn fields(n: usize) -> String {
+    if n == 1 {
+        "1 field".to_string()
+    } else {
+        format!("{n} fields")
+    }
 }
 
 fn column_list(spec: &FileSpec) -> String {
@@ -3504,6 +3513,21 @@ mod tests {
         let (t, d) = read_weights(text);
         assert!(t.is_some(), "{d:#?}");
         assert!(d.iter().all(|x| x.severity != crate::diag::Severity::Error), "{d:#?}");
+    }
+
+    /// A row of one field (another delimiter) said "row has 1 fields".
+    #[test]
+    fn a_row_of_one_field_says_field() {
+        let (t, d) = read(
+            "date,weight,unit\n2026-05-01,72.5,kg\n2026-05-02;72.3;kg\n",
+            &CsvOptions::default(),
+        );
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert_eq!(
+            d[0].message,
+            "row has 1 field but the header has 3; the row is dropped"
+        );
+        assert_eq!(d[0].found.as_deref(), Some("1 field: `2026-05-02;72.3;kg`"));
     }
 
     /// A clinic export's `Height (in)` beside `Weight (lb)` is one letter from `weight`, and
