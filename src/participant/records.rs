@@ -1553,7 +1553,12 @@ pub fn parse_intake(
     if !settle_unit_conflicts(&conflicts, declared_rows, ctx, diags) {
         return None;
     }
-    note_identical_same_day(&rows, "intake rows", "are each counted in the day's total", ctx);
+    note_identical_same_day(
+        &rows,
+        "intake rows",
+        "are each counted in the day's total",
+        ctx,
+    );
     let rows = in_window(rows, w, true, &table, ctx, diags);
     table.describe(opts, ctx);
     let rows = drop_total_rows(rows, &table, ctx, diags);
@@ -2194,7 +2199,12 @@ pub fn parse_activity(
         );
     }
     diags.extend(more);
-    note_identical_same_day(&rows, "activity rows", "are each counted in the day's total", ctx);
+    note_identical_same_day(
+        &rows,
+        "activity rows",
+        "are each counted in the day's total",
+        ctx,
+    );
     let rows = in_window(rows, w, true, &table, ctx, diags);
     table.describe(opts, ctx);
 

@@ -3509,10 +3509,14 @@ mod tests {
         assert_eq!((d[0].line, d[0].column), (Some(4), Some(1)), "{d:#?}");
         assert_eq!(d[0].found.as_deref(), Some("`Visit Date,Weight (lb)`"));
         // Rows of text that name no column of ours, or hold a date or a number, are rows.
-        let text = "Date,Weight (kg),Notes\n2026-09-07,81.5,fine\nAverage,81.4,\nnot weighed,away,\n";
+        let text =
+            "Date,Weight (kg),Notes\n2026-09-07,81.5,fine\nAverage,81.4,\nnot weighed,away,\n";
         let (t, d) = read_weights(text);
         assert!(t.is_some(), "{d:#?}");
-        assert!(d.iter().all(|x| x.severity != crate::diag::Severity::Error), "{d:#?}");
+        assert!(
+            d.iter().all(|x| x.severity != crate::diag::Severity::Error),
+            "{d:#?}"
+        );
     }
 
     /// A row of one field (another delimiter) said "row has 1 fields".
@@ -3540,15 +3544,17 @@ mod tests {
         let weights = crate::program::files::WEIGHTS;
         let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
         let mut d = Vec::new();
-        let text = "Visit Date,Clinician,Weight (lb),Height (in),Comments\n2026-09-07,Nurse A,181.0,64,\n";
+        let text =
+            "Visit Date,Clinician,Weight (lb),Height (in),Comments\n2026-09-07,Nurse A,181.0,64,\n";
         let t = read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
         assert!(d.is_empty(), "{d:#?}");
         assert_eq!(t.unwrap().rows.len(), 1);
         let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
         assert!(
-            notes.iter().any(|n| n.starts_with(
-                "columns `Clinician`, `Height (in)`, `Comments` are not read"
-            )),
+            notes
+                .iter()
+                .any(|n| n
+                    .starts_with("columns `Clinician`, `Height (in)`, `Comments` are not read")),
             "{notes:#?}"
         );
         // `Weight 2` holds `weight` as a word: still warned about beside `Weight`.
