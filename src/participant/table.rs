@@ -1586,7 +1586,7 @@ fn read_records(
                 .found(format!("`{}`", shorten(&as_written, 200)))
                 .hint(if spec.name == "weights.csv" {
                     format!(
-                        "a participant has one weights.csv, with every weigh-in under one header: give the rows below line {line} the first header's columns (with their unit, and a `source` column such as `clinic` to tell them from home weigh-ins) and delete this line"
+                        "a participant has one weights.csv, with every weigh-in under one header: give the rows below line {line} the first header's columns and delete this line; where the exports use different units, write each weight with its unit (`161.6 lb`) under a header that names none (`Weight`); add a `source` column (`clinic`, `home scale`) to tell the clinic's weigh-ins from the home scale's"
                     )
                 } else {
                     format!(
@@ -3496,6 +3496,7 @@ mod tests {
         assert!(
             d[0].hint.as_deref().is_some_and(|h| h
                 .starts_with("a participant has one weights.csv, with every weigh-in under one header: give the rows below line 4")
+                && h.contains("write each weight with its unit (`161.6 lb`) under a header that names none (`Weight`)")
                 && h.contains("`source` column")),
             "{:?}",
             d[0].hint
