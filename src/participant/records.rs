@@ -266,8 +266,14 @@ fn report_repeats(
 }
 
 /// Notes identical rows on one day that are all counted (two snacks of the same size are
-/// common): the day's total includes each, and the note says so, once per file.
-fn note_identical_same_day<T: SameValue>(rows: &[Parsed<T>], what: &str, ctx: &FileCtx) {
+/// common): the day's total includes each, and the note says so, once per file. `what` names
+/// the rows, `counted` says how each is counted (`are each counted in the day's total`).
+fn note_identical_same_day<T: SameValue>(
+    rows: &[Parsed<T>],
+    what: &str,
+    counted: &str,
+    ctx: &FileCtx,
+) {
     let mut order: Vec<usize> = (0..rows.len()).collect();
     order.sort_by_key(|&i| rows[i].date);
     let mut found = Vec::new();
@@ -302,7 +308,7 @@ fn note_identical_same_day<T: SameValue>(rows: &[Parsed<T>], what: &str, ctx: &F
             String::new()
         };
         ctx.note(format!(
-            "identical {what} rows on the same day are each counted in the day's total: {shown}{more}; delete one only if it was entered twice"
+            "identical {what} on the same day {counted}: {shown}{more}; delete one only if it was entered twice"
         ));
     }
 }
@@ -981,6 +987,16 @@ pub fn parse_weights(
             r
         })
         .collect();
+    // Identical rows with a time of day were dropped as duplicates; without one, two rows may
+    // be two weigh-ins that read the same, and each is read (and the trend gives that day's
+    // weight twice the say). The README promised `check` notes them, and nothing did for
+    // weigh-ins: an export with a row pasted twice went unmentioned.
+    note_identical_same_day(
+        &rows,
+        "weigh-ins without a time of day",
+        "are each read as a weigh-in",
+        ctx,
+    );
     // Follow-up weigh-ins after a withdrawal are read only for someone who stopped the program.
     let rows = in_window(rows, w, !w.follow_up_weigh_ins, &table, ctx, diags);
     table.describe(opts, ctx);
@@ -1537,7 +1553,12 @@ pub fn parse_intake(
     if !settle_unit_conflicts(&conflicts, declared_rows, ctx, diags) {
         return None;
     }
-    note_identical_same_day(&rows, "intake", ctx);
+    note_identical_same_day(
+        &rows,
+        "intake rows",
+        "are each counted in the day's total",
+        ctx,
+    );
     let rows = in_window(rows, w, true, &table, ctx, diags);
     table.describe(opts, ctx);
     let rows = drop_total_rows(rows, &table, ctx, diags);
@@ -2062,7 +2083,16 @@ pub fn parse_activity(
                     c.warn("minutes", "a duration with one colon could be minutes:seconds or hours:minutes, and no duration of the file tells which; the row is dropped")
                         .expected("minutes (`45`), a clock duration h:mm:ss (`0:45:00`) or a duration with units (`45 min`, `1 h 15 min`)")
                         .found(format!("`{raw}`"))
-                        .hint("export durations as h:mm:ss or in minutes"),
+                        // The fix the README gives (a clock form in the header) was not
+                        // named: only a new export, which the app may not offer.
+                        .hint(format!(
+                            "say which in the column's header: `{h} (h:mm)` for hours:minutes or `{h} (mm:ss)` for minutes:seconds; or export durations as h:mm:ss or in minutes",
+                            h = c
+                                .table
+                                .header_written("minutes")
+                                .and_then(|h| h.split(" (").next())
+                                .unwrap_or("Duration")
+                        )),
                 );
                 return None;
             }
@@ -2169,7 +2199,12 @@ pub fn parse_activity(
         );
     }
     diags.extend(more);
-    note_identical_same_day(&rows, "activity", ctx);
+    note_identical_same_day(
+        &rows,
+        "activity rows",
+        "are each counted in the day's total",
+        ctx,
+    );
     let rows = in_window(rows, w, true, &table, ctx, diags);
     table.describe(opts, ctx);
 

@@ -253,6 +253,11 @@ impl Table {
         self.units.get(col).map(String::as_str)
     }
 
+    /// The header of column `col` as the file writes it (`Duration`).
+    pub fn header_written(&self, col: &str) -> Option<&str> {
+        self.headers.get(col).map(String::as_str)
+    }
+
     /// Whether a field of `row` outside our columns (a `Meal` column, say) holds one of
     /// `labels` (lowercase), whatever its case, spacing or final colon (`TOTAL:`).
     pub fn row_labelled(&self, row: &Row, labels: &[&str]) -> bool {
@@ -1272,6 +1277,37 @@ fn read_records(
             }
         }
     }
+    // A column a letter or two from one of ours that the file reads already, under its own
+    // name (a clinic's `Height (in)` beside `Weight (lb)`), is another measurement, not ours
+    // misspelt: named in the note of columns not read. Its warning ended every run on such a
+    // standard export "with warnings" (exit code 1). One holding ours as a word (`Weight 2`)
+    // keeps its warning.
+    let mut k = 0;
+    while k < extra_at.len() {
+        let i = extra_at[k];
+        let key = header_key(&written[i]).0;
+        let near = near_by_spelling(&key, spec);
+        if !near.is_empty()
+            && !holds_ours(&key, spec)
+            && near.iter().all(|c| columns.contains_key(c))
+        {
+            extra_at.remove(k);
+            extra.remove(k);
+            // In the header's order, as the other columns not read are named.
+            let at = ignored
+                .iter()
+                .position(|n| {
+                    written
+                        .iter()
+                        .position(|w| format!("`{w}`") == *n)
+                        .is_some_and(|j| j > i)
+                })
+                .unwrap_or(ignored.len());
+            ignored.insert(at, format!("`{}`", written[i]));
+        } else {
+            k += 1;
+        }
+    }
     // Dates written as rows of their own above the measurements, which have only a time of
     // day (`Time,Weight,…` / `" Nov 25, 2026",` / `7:12 AM,72.5 kg,…`: a smart scale app's
     // export): whether they are is known once the rows are read.
@@ -1523,7 +1559,41 @@ fn read_records(
                     header_text(written.iter().map(|h| h.as_str()).collect())
                 ))
                 .found(format!("`{}`", header_text(cells)))
-                .hint("the file joins exports with different columns: split it into two files, or give the second part the first part's columns in its order"),
+                .hint(format!(
+                    "the file joins exports with different columns, and a participant has one {}: give the rows below line {line} the first header's columns, in its order, and delete this line",
+                    spec.name
+                )),
+            );
+            return None;
+        }
+        // The header of another export pasted below this one's rows (a home scale app's
+        // weigh-ins, then the clinic's export, with other columns and perhaps another
+        // delimiter): each of its rows was dropped as a row of the wrong shape with a hint to
+        // quote text, the header itself among them, and the clinic's weigh-ins were lost
+        // with a run that ended "with warnings". As for a header in another order, the rows
+        // below it cannot be read under the first header's columns.
+        if let Some((as_written, named)) = other_export_header(&rec, delimiter, spec, opts) {
+            diags.append(&mut extra);
+            diags.push(
+                ctx.error(format!(
+                    "line {line} is the header of another export, not a row (`{named}` is a column name); the rows below it cannot be read under the first header's columns, and the file is not used"
+                ))
+                .at(line, Some(1))
+                .expected(format!(
+                    "rows under the header on line {header_line}: `{}`",
+                    written.join(&delim_text)
+                ))
+                .found(format!("`{}`", shorten(&as_written, 200)))
+                .hint(if spec.name == "weights.csv" {
+                    format!(
+                        "a participant has one weights.csv, with every weigh-in under one header: give the rows below line {line} the first header's columns and delete this line; where the exports use different units, write each weight with its unit (`161.6 lb`) under a header that names none (`Weight`); add a `source` column (`clinic`, `home scale`) to tell the clinic's weigh-ins from the home scale's"
+                    )
+                } else {
+                    format!(
+                        "a participant has one {}, with one header: give the rows below line {line} the first header's columns, in its order, and delete this line",
+                        spec.name
+                    )
+                }),
             );
             return None;
         }
@@ -1577,15 +1647,15 @@ fn read_records(
         if !fits {
             let mut d = ctx
                 .warning(format!(
-                    "row has {} fields but the header has {}; the row is dropped",
-                    rec.len(),
+                    "row has {} but the header has {}; the row is dropped",
+                    fields(rec.len()),
                     names.len()
                 ))
                 .at(line, None)
-                .expected(format!("{} fields", names.len()))
+                .expected(fields(names.len()))
                 .found(format!(
-                    "{} fields: `{}`",
-                    rec.len(),
+                    "{}: `{}`",
+                    fields(rec.len()),
                     shorten(
                         &rec.iter()
                             .take(MAX_CSV_COLUMNS + 1)
@@ -1990,10 +2060,11 @@ fn shorten(s: &str, max: usize) -> String {
 /// `kcal`) and a scale's `Note` (two from `date`) were warned about as ours misspelt, and every
 /// run on such a standard export ended "with warnings".
 fn near_ours(key: &str, spec: &FileSpec) -> bool {
-    let words: Vec<&str> = key
-        .split(|c: char| !c.is_alphanumeric())
-        .filter(|w| !w.is_empty())
-        .collect();
+    !near_by_spelling(key, spec).is_empty() || holds_ours(key, spec)
+}
+
+/// The columns of ours `key` is a spelling slip of, by the edit rules of [`near_ours`].
+fn near_by_spelling(key: &str, spec: &FileSpec) -> Vec<&'static str> {
     let distance = |c: &str| crate::activities::edit_distance(key, c);
     let same_letters = |c: &str| {
         let sorted = |s: &str| {
@@ -2003,13 +2074,116 @@ fn near_ours(key: &str, spec: &FileSpec) -> bool {
         };
         sorted(key) == sorted(c)
     };
-    spec.all_columns().any(|c| {
-        let d = distance(c);
-        let letters = c.chars().count();
-        d <= 1
-            || (d == 2 && (letters >= 5 || (letters == 4 && same_letters(c))))
-            || c.split('_').all(|part| words.contains(&part))
-    }) || spec.aliases.iter().any(|(a, _)| distance(a) <= 1)
+    spec.all_columns()
+        .filter(|c| {
+            let d = distance(c);
+            let letters = c.chars().count();
+            d <= 1 || (d == 2 && (letters >= 5 || (letters == 4 && same_letters(c))))
+        })
+        .collect()
+}
+
+/// Whether `key` holds a column name of ours as a whole word (`weight_2`) or is one edit from
+/// an alias: by the rules of [`near_ours`] other than a slip in one of our names.
+fn holds_ours(key: &str, spec: &FileSpec) -> bool {
+    let words: Vec<&str> = key
+        .split(|c: char| !c.is_alphanumeric())
+        .filter(|w| !w.is_empty())
+        .collect();
+    spec.all_columns()
+        .any(|c| c.split('_').all(|part| words.contains(&part)))
+        || spec
+            .aliases
+            .iter()
+            .any(|(a, _)| crate::activities::edit_distance(key, a) <= 1)
+}
+
+/// The column of ours a header cell names, as the header row is read: the program's mapping
+/// (`input.columns`), our own names, the built-in aliases, or a name with a unit suffix
+/// (`weight_kg`).
+fn column_named(name: &str, spec: &FileSpec, opts: &CsvOptions) -> Option<&'static str> {
+    let (key, unit) = header_key(name);
+    let ours = |k: &str| spec.all_columns().find(|c| *c == k);
+    let alias = |k: &str| {
+        spec.aliases
+            .iter()
+            .find(|(a, _)| *a == k)
+            .and_then(|(_, c)| ours(c))
+    };
+    if let Some((c, _)) = opts
+        .columns
+        .get(spec.kind())
+        .and_then(|m| m.get(&key))
+        .and_then(|t| spec.mapping_target(t))
+    {
+        return Some(c);
+    }
+    ours(&key).or_else(|| alias(&key)).or_else(|| {
+        if unit.is_some() {
+            return None;
+        }
+        let (base, u) = key.rsplit_once('_')?;
+        let c = ours(base).or_else(|| alias(base))?;
+        spec.header_units
+            .iter()
+            .any(|(v, allowed, _)| *v == c && allowed.contains(&u))
+            .then_some(c)
+    })
+}
+
+/// A row that is the header of another export (`Visit Date,Patient Ref,Weight (lb),…` below a
+/// scale app's rows): at least two cells, none of them a date or a number, and one naming a
+/// column of ours other than the date. A row of one field (the other export used another
+/// delimiter) is split at the comma, semicolon or tab that gives it the most cells. Returns the
+/// line as written (its cells trimmed) and the first cell naming a column of ours.
+fn other_export_header(
+    rec: &csv::StringRecord,
+    delimiter: u8,
+    spec: &FileSpec,
+    opts: &CsvOptions,
+) -> Option<(String, String)> {
+    let (fields, as_written): (Vec<&str>, String) = if rec.len() == 1 {
+        let f = rec.get(0)?;
+        let fields = [',', ';', '\t']
+            .iter()
+            .map(|&d| f.split(d).collect::<Vec<_>>())
+            .max_by_key(Vec::len)?;
+        (fields, f.trim().to_string())
+    } else {
+        let fields: Vec<&str> = rec.iter().collect();
+        let joined = fields
+            .iter()
+            .map(|f| f.trim())
+            .collect::<Vec<_>>()
+            .join(&(delimiter as char).to_string());
+        (fields, joined)
+    };
+    let cells: Vec<String> = fields
+        .iter()
+        .map(|f| f.trim().to_string())
+        .filter(|f| !f.is_empty())
+        .collect();
+    if cells.len() < 2
+        || cells
+            .iter()
+            .any(|c| parse_when(c, opts).is_some() || parse_decimal(c).is_ok())
+    {
+        return None;
+    }
+    let named = cells
+        .iter()
+        .find(|c| column_named(c, spec, opts).is_some_and(|col| col != "date"))?
+        .clone();
+    Some((as_written, named))
+}
+
+/// `1 field`, `4 fields` ("row has 1 fields" read as a slip of ours).
+fn fields(n: usize) -> String {
+    if n == 1 {
+        "1 field".to_string()
+    } else {
+        format!("{n} fields")
+    }
 }
 
 fn column_list(spec: &FileSpec) -> String {
@@ -3280,6 +3454,122 @@ mod tests {
                 .message
                 .contains("repeated inside the file (first on line 3"),
         );
+    }
+
+    /// A home scale app's export with the clinic's export pasted below it (one weights.csv
+    /// per participant): each clinic row was dropped as "row has 6 fields but the header has
+    /// 4" with a hint to quote text, the clinic's header line among them, and the run ended
+    /// with warnings only. The line is named as the header it is, and the file is refused
+    /// there, as for a header in another order.
+    #[test]
+    fn the_header_of_another_export_below_the_rows_refuses_the_file_there() {
+        let weights = crate::program::files::WEIGHTS;
+        let read_weights = |text: &str| {
+            let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+            let mut d = Vec::new();
+            let t = read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
+            (t, d)
+        };
+        // The same delimiter, other columns.
+        let text = "Date,Time,Weight (kg),Notes\n2026-09-07,07:10,81.5,\n2026-09-09,07:02,81.2,\n\
+                    Visit Date,Patient Ref,Clinician,Weight (lb),Height (in),Comments\n\
+                    2026-09-07,TF-11,Nurse A,161.6,64,\n";
+        let (t, d) = read_weights(text);
+        assert!(t.is_none(), "the file is not used");
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!(d[0].severity, crate::diag::Severity::Error);
+        assert_eq!((d[0].line, d[0].column), (Some(4), Some(1)));
+        assert_eq!(
+            d[0].message,
+            "line 4 is the header of another export, not a row (`Weight (lb)` is a column \
+             name); the rows below it cannot be read under the first header's columns, and the \
+             file is not used"
+        );
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("rows under the header on line 1: `Date,Time,Weight (kg),Notes`")
+        );
+        assert_eq!(
+            d[0].found.as_deref(),
+            Some("`Visit Date,Patient Ref,Clinician,Weight (lb),Height (in),Comments`")
+        );
+        assert!(
+            d[0].hint.as_deref().is_some_and(|h| h
+                .starts_with("a participant has one weights.csv, with every weigh-in under one header: give the rows below line 4")
+                && h.contains("write each weight with its unit (`161.6 lb`) under a header that names none (`Weight`)")
+                && h.contains("`source` column")),
+            "{:?}",
+            d[0].hint
+        );
+        // A semicolon export (decimal commas, CRLF) with a comma export pasted below: the
+        // clinic's lines are one field each; shown as written.
+        let text = "Date;Weight (kg)\r\n07/09/2026;81,5\r\n09/09/2026;81,2\r\n\
+                    Visit Date,Weight (lb)\r\n2026-09-21,178.0\r\n";
+        let (t, d) = read_weights(text);
+        assert!(t.is_none());
+        assert_eq!((d[0].line, d[0].column), (Some(4), Some(1)), "{d:#?}");
+        assert_eq!(d[0].found.as_deref(), Some("`Visit Date,Weight (lb)`"));
+        // Rows of text that name no column of ours, or hold a date or a number, are rows.
+        let text =
+            "Date,Weight (kg),Notes\n2026-09-07,81.5,fine\nAverage,81.4,\nnot weighed,away,\n";
+        let (t, d) = read_weights(text);
+        assert!(t.is_some(), "{d:#?}");
+        assert!(
+            d.iter().all(|x| x.severity != crate::diag::Severity::Error),
+            "{d:#?}"
+        );
+    }
+
+    /// A row of one field (another delimiter) said "row has 1 fields".
+    #[test]
+    fn a_row_of_one_field_says_field() {
+        let (t, d) = read(
+            "date,weight,unit\n2026-05-01,72.5,kg\n2026-05-02;72.3;kg\n",
+            &CsvOptions::default(),
+        );
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert_eq!(
+            d[0].message,
+            "row has 1 field but the header has 3; the row is dropped"
+        );
+        assert_eq!(d[0].found.as_deref(), Some("1 field: `2026-05-02;72.3;kg`"));
+    }
+
+    /// A clinic export's `Height (in)` beside `Weight (lb)` is one letter from `weight`, and
+    /// was warned about as our column misspelt ("check its spelling"), so every run on such an
+    /// export ended with warnings (exit code 1). The file reads `weight` already: it is a
+    /// column not read, in the note. A slip of a column the file lacks, or one holding ours as
+    /// a word, is still warned about.
+    #[test]
+    fn a_column_a_letter_from_one_the_file_reads_already_is_not_warned_about() {
+        let weights = crate::program::files::WEIGHTS;
+        let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+        let mut d = Vec::new();
+        let text =
+            "Visit Date,Clinician,Weight (lb),Height (in),Comments\n2026-09-07,Nurse A,181.0,64,\n";
+        let t = read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
+        assert!(d.is_empty(), "{d:#?}");
+        assert_eq!(t.unwrap().rows.len(), 1);
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        assert!(
+            notes
+                .iter()
+                .any(|n| n
+                    .starts_with("columns `Clinician`, `Height (in)`, `Comments` are not read")),
+            "{notes:#?}"
+        );
+        // `Weight 2` holds `weight` as a word: still warned about beside `Weight`.
+        let mut d = Vec::new();
+        let text = "Date,Weight,Weight 2,Unit\n2026-09-07,81.5,81.6,kg\n";
+        read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!(d[0].message, "extra column `Weight 2` is ignored");
+        // `sorce` is a slip of `source`, which the file does not read: still warned about.
+        let mut d = Vec::new();
+        let text = "Date,Weight,Unit,sorce\n2026-09-07,81.5,kg,home\n";
+        read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
+        assert_eq!(d.len(), 1, "{d:#?}");
+        assert_eq!(d[0].message, "extra column `sorce` is ignored");
     }
 
     /// Exports of two app versions joined, the second with its columns in another order: the

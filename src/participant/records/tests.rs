@@ -2576,3 +2576,57 @@ fn an_activity_across_a_daylight_saving_change_lasts_what_it_lasted_in_the_progr
         ]
     );
 }
+
+/// A weigh-in row pasted twice in an export without times (`07/09/2026,81.5,home scale`): both
+/// are read (two weigh-ins can read the same), and the README promised `check` notes them, but
+/// only intake and activity files had the note: the weights file said nothing.
+#[test]
+fn identical_weigh_ins_without_a_time_are_read_and_noted() {
+    let c = ctx("weights.csv");
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "date,weight,unit,source\n2026-04-02,81.5,kg,home scale\n2026-04-03,81.2,kg,home scale\n\
+         2026-04-02,81.5,kg,home scale\n2026-04-04,81.0,kg,clinic\n2026-04-04,81.0,kg,home scale\n",
+        &CsvOptions::default(),
+        &c,
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(w.len(), 5, "each is read");
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.contains(
+            &"identical weigh-ins without a time of day on the same day are each read as a \
+              weigh-in: 2026-04-02 (lines 2, 4); delete one only if it was entered twice"
+                .to_string()
+        ),
+        "{notes:#?}"
+    );
+}
+
+/// A one-colon duration nothing in the file settles (`0:45`): the hint named only a new
+/// export, not the header form the README gives (`Duration (h:mm)`), which reads them as is.
+#[test]
+fn an_unsettled_one_colon_duration_names_the_header_that_settles_it() {
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration\n2026-04-01,brisk walk,0:45\n2026-04-02,Yoga,30\n",
+    );
+    assert_eq!(a.unwrap().len(), 1);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(
+        diags[0].hint.as_deref(),
+        Some(
+            "say which in the column's header: `Duration (h:mm)` for hours:minutes or \
+             `Duration (mm:ss)` for minutes:seconds; or export durations as h:mm:ss or in minutes"
+        )
+    );
+    // The header the hint gives reads the file.
+    let (a, diags) = activity_or_error(
+        "Date,Activity,Duration (h:mm)\n2026-04-01,brisk walk,0:45\n2026-04-02,Yoga,1:30\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [45.0, 90.0]);
+}
