@@ -228,6 +228,12 @@ fn exit_codes_help() -> String {
     for (code, text) in crate::exit_code::TABLE {
         s.push_str(&format!("  {code:>3}  {text}\n"));
     }
+    // A new user's first look: where the files a program needs are described (a try-out found
+    // no pointer from --help to them).
+    s.push_str(
+        "\nStart here: `cohortpress demo-program DIR` writes a small fictional program to copy from.\n\
+         README.md (beside the source) describes program.yaml, each participant file and its columns.\n",
+    );
     s
 }
 
@@ -242,6 +248,15 @@ mod tests {
             .expect("run subcommand")
             .render_long_help()
             .to_string()
+    }
+
+    /// A try-out found no pointer from `--help` to where program.yaml and the participant files
+    /// are described.
+    #[test]
+    fn help_says_where_to_start() {
+        let help = Cli::command().render_long_help().to_string();
+        assert!(help.contains("cohortpress demo-program DIR"), "{help}");
+        assert!(help.contains("README.md"), "{help}");
     }
 
     /// `run --help` said "--only …: the group report then covers only them", while a run with
