@@ -36,7 +36,7 @@ fn export(report: &cohortpress::check::CheckReport) -> (Value, String) {
         let d = p.data.as_ref().expect("usable");
         let fid = format!("pt{n:04}x");
         map.push_str(&format!("{fid},{}\n", d.profile.id));
-        let sex = format!("{:?}", d.profile.sex).to_lowercase();
+        let sex = sex_word(d.profile.sex);
         entries.push(json!({"fullUrl": format!("urn:uuid:{fid}"), "resource": {
             "resourceType": "Patient", "id": fid, "gender": sex,
             "birthDate": d.profile.birth_date.unwrap().to_string()}}));
@@ -108,6 +108,15 @@ fn export(report: &cohortpress::check::CheckReport) -> (Value, String) {
     )
 }
 
+/// profile.yaml's word for a sex (FHIR's gender codes use the same two words).
+fn sex_word(sex: Option<cohortpress_metric_api::Sex>) -> &'static str {
+    match sex {
+        Some(cohortpress_metric_api::Sex::Female) => "female",
+        Some(cohortpress_metric_api::Sex::Male) => "male",
+        None => "unrecorded",
+    }
+}
+
 #[test]
 fn a_program_exported_as_fhir_and_imported_gives_the_same_metrics() {
     let ours = ProgramTest::sample();
@@ -139,7 +148,7 @@ fn a_program_exported_as_fhir_and_imported_gives_the_same_metrics() {
             format!(
                 "id: {}\nsex: {}\nbirth_date: {birth}\nheight: {} cm\nenrolled: {}\n",
                 p.id,
-                format!("{:?}", d.profile.sex).to_lowercase(),
+                sex_word(d.profile.sex),
                 d.profile.height.cm(),
                 d.profile.enrolled
             ),
