@@ -687,3 +687,81 @@ fn energy_is_given_the_records_up_to_the_withdrawal_day_only_after_stopping_the_
     // Without follow-up weigh-ins (consent, or none after the day) nothing is run twice.
     assert!(without_follow_up(&consent).is_none());
 }
+
+/// A flag that only the follow-up weigh-ins of someone who stopped the program raise is kept
+/// and named as seen at follow-up, and the energy module's note on the window its cut records
+/// do not cover says the logs ended on the day they left. Before, a low BMI seen only at
+/// follow-up was listed like any finding of the program, and the note read "The weight trend
+/// does not cover enough of the last 28 days" beside a chart whose follow-up weigh-ins covered
+/// them (sample program, SG-001 and SG-002 as stopped_program).
+#[test]
+fn flags_raised_by_follow_up_weigh_ins_alone_are_seen_at_follow_up() {
+    use cohortpress_metric_api::{WithdrawalReason, fixture};
+    let prog = program("  - id: trend\n  - id: energy\n  - id: adherence\n  - id: outcomes\n");
+    let (set, diags) = build_with(&prog, registry::builtin_modules()).expect("builds");
+    assert!(errors(&diags).is_empty(), "{diags:?}");
+    // Left on the period's first day (day 56), after losing 0.6 kg a week; losing 0.25 kg a
+    // day (1.75 kg a week) at follow-up, to about 6.8 kg less on day 83.
+    let left = fixture::period().from;
+    let mut stopped = fixture::participant();
+    for w in &mut stopped.weights {
+        let after = (w.date - left).num_days().max(0) as f64;
+        w.weight = Mass::from_kg(w.weight.kg() - 0.25 * after);
+    }
+    stopped.profile.withdrew = Some(left);
+    stopped.profile.withdrawal_reason = WithdrawalReason::StoppedProgram;
+    stopped.intake.retain(|x| x.date <= left);
+    stopped.activity.retain(|x| x.date <= left);
+    stopped.sessions.retain(|x| x.date <= left);
+    stopped.labs.retain(|x| x.date <= left);
+    let mut consent = stopped.clone();
+    consent.profile.withdrawal_reason = WithdrawalReason::Consent;
+    consent.weights.retain(|w| w.date <= left);
+    let spec = registry::builtin_modules()[0].spec();
+    let fx = fixture::context(&spec, &[]);
+    let (prog_info, period, as_of) = (fx.program, fx.period, fx.as_of);
+    let run = |p: &ParticipantData| set.run(&prog_info, period, as_of, p);
+    let (s, c) = (run(&stopped), run(&consent));
+    let codes = |r: &ModuleResults, m: &str| -> Vec<String> {
+        r.output(m)
+            .unwrap()
+            .flags
+            .iter()
+            .map(|f| f.code.clone())
+            .collect()
+    };
+    // The fast loss is kept, and is the only flag seen at follow-up only.
+    assert!(codes(&s, "outcomes").contains(&"fast_loss".to_string()));
+    assert!(!codes(&c, "outcomes").contains(&"fast_loss".to_string()));
+    assert_eq!(
+        s.follow_up_flags,
+        vec![("outcomes".to_string(), "fast_loss".to_string())]
+    );
+    assert!(s.at_follow_up("outcomes", "fast_loss"));
+    assert!(!s.at_follow_up("energy", "fast_loss"));
+    assert!(c.follow_up_flags.is_empty());
+    // The energy note names the day the logs ended; with withdrawn consent (no follow-up
+    // weigh-ins) the module's own words stay.
+    let note = |r: &ModuleResults| {
+        r.output("energy")
+            .unwrap()
+            .flags
+            .iter()
+            .find(|f| f.code == "insufficient_data")
+            .map(|f| f.message.clone())
+    };
+    assert_eq!(
+        note(&s).as_deref(),
+        Some(
+            "Food and activity logs end on 2026-03-02, the day of leaving the program, and the \
+             weight after that day is from follow-up weigh-ins, which are not set against logs \
+             that had ended; so the intake implied by the weight trend, the forecast and the \
+             options are not computed for the end of this period."
+        )
+    );
+    assert!(
+        note(&c).is_some_and(|n| n.starts_with("The weight trend does not cover enough")),
+        "{:?}",
+        note(&c)
+    );
+}
