@@ -233,35 +233,6 @@ fn enrolled_long_before_start(
     Some(d)
 }
 
-/// An error on `enrolled` when it is after the program's last day: `2062-04-01` for
-/// `2026-04-01` dropped every row of every file as "before enrolment", and the participant
-/// had no report and was left out of the group figures while the run reported only warnings.
-/// (Enrolled after a *period's* end but within the program is read: no report for that
-/// period, as the README says.)
-fn enrolled_after_end(
-    enrolled: NaiveDate,
-    end: NaiveDate,
-    ctx: &FileCtx,
-    line: Option<u64>,
-) -> Option<Diagnostic> {
-    if enrolled <= end {
-        return None;
-    }
-    let mut d = ctx
-        .error(format!(
-            "enrolment date {enrolled} is after the program ends ({end}); the participant \
-             cannot be used"
-        ))
-        .field("enrolled")
-        .expected(format!("an enrolment date on or before {end}"))
-        .found(enrolled.to_string())
-        .hint("check the year; if the program runs longer, change program.end");
-    if let Some(l) = line {
-        d = d.at(l, None);
-    }
-    Some(d)
-}
-
 /// Plausible BMI, kg/m², of the median weigh-in at the profile's height (common practice: below
 /// 12 an adult does not live for long, above 150 nobody has been recorded; outside it, the
 /// height or the weights are wrong).
@@ -829,18 +800,24 @@ pub fn load_opened(
         Some(Ok(text)) => {
             enrolled_line = crate::program::load::key_line(&text, "enrolled");
             height_line = crate::program::load::key_line(&text, "height");
-            profile::parse_profile(&text, id, &program.info.targets, &pctx, &mut diags).map(
-                |mut p| {
-                    group_keys_as_the_program_names_them(
-                        &mut p,
-                        &program.def.report.group_by,
-                        &pctx,
-                        crate::program::load::key_line(&text, "groups"),
-                        &mut diags,
-                    );
-                    p
-                },
+            profile::parse_profile(
+                &text,
+                id,
+                &program.info.targets,
+                program.info.end,
+                &pctx,
+                &mut diags,
             )
+            .map(|mut p| {
+                group_keys_as_the_program_names_them(
+                    &mut p,
+                    &program.def.report.group_by,
+                    &pctx,
+                    crate::program::load::key_line(&text, "groups"),
+                    &mut diags,
+                );
+                p
+            })
         }
     };
     // CSV files are checked even when the profile is unusable, so every problem of the folder
@@ -899,12 +876,6 @@ pub fn load_opened(
     if let Some(p) = profile.as_ref().filter(|_| profile_usable)
         && let Some(d) =
             enrolled_long_before_start(p.enrolled, program.info.start, &pctx, enrolled_line)
-    {
-        diags.push(d);
-        profile_usable = false;
-    }
-    if let Some(p) = profile.as_ref().filter(|_| profile_usable)
-        && let Some(d) = enrolled_after_end(p.enrolled, program.info.end, &pctx, enrolled_line)
     {
         diags.push(d);
         profile_usable = false;
