@@ -136,6 +136,7 @@ fn program(modules_yaml: &str) -> Program {
         def,
         module_lines,
         underweight_line: None,
+        source: String::new(),
     }
 }
 
@@ -272,7 +273,12 @@ fn every_settings_problem_is_reported_on_its_entry() {
     for e in &errs {
         assert_eq!(e.file, "program.yaml");
         assert_eq!(e.line, Some(11));
-        assert_eq!(e.field.as_deref(), Some("modules[1].with"));
+        // Each names its setting.
+        let setting = e.message.split('`').nth(1).unwrap();
+        assert_eq!(
+            e.field.as_deref(),
+            Some(format!("modules[1].with.{setting}").as_str())
+        );
     }
     let text: Vec<&str> = errs.iter().map(|e| e.message.as_str()).collect();
     assert!(
@@ -763,5 +769,55 @@ fn flags_raised_by_follow_up_weigh_ins_alone_are_seen_at_follow_up() {
         note(&c).is_some_and(|n| n.starts_with("The weight trend does not cover enough")),
         "{:?}",
         note(&c)
+    );
+}
+
+/// The module registry's errors are at the line and column of what is wrong, as the other
+/// program.yaml errors are: an unknown module at its id's value, an unknown setting at its
+/// key, a setting's bad value at the value, in block and flow style, and on a flow list on one
+/// line at its own entry. They were at the entry's line alone ("program.yaml:27: unknown
+/// setting `bogus` for module `trend`" for a `with:` on line 28).
+#[test]
+fn registry_errors_name_the_line_and_column_of_the_id_or_setting() {
+    let positions = |modules: &str| -> Vec<(String, Option<u64>, Option<u64>)> {
+        let text = format!(
+            "format_version: 1\nprogram: {{id: p, title: T, start: 2027-01-01, end: 2027-12-31}}\n\
+             {modules}"
+        );
+        let prog = crate::program::load::parse_program(std::path::Path::new("."), &text)
+            .expect("the program parses");
+        let diags = match build_with(&prog, registry::builtin_modules()) {
+            Ok((_, d)) | Err(d) => d,
+        };
+        diags
+            .into_iter()
+            .map(|d| {
+                let field = d.field.clone().unwrap_or_default();
+                (field, d.line, d.column)
+            })
+            .collect()
+    };
+    let s = |f: &str, l: u64, c: u64| (f.to_string(), Some(l), Some(c));
+    assert_eq!(
+        positions(
+            "modules:\n  - id: trend\n    with: { plateau_window_days: 5, bogus: 1 }   # a comment: x\n  - id: energy\n  - id: adherance\n"
+        ),
+        [
+            s("modules[0].with.bogus", 5, 37),
+            s("modules[0].with.plateau_window_days", 5, 34),
+            s("modules[2].id", 7, 9),
+        ]
+    );
+    assert_eq!(
+        positions("modules:\n  - id: trend\n    with:\n      min_weigh_ins: 1\n      bogus: 2\n"),
+        [
+            s("modules[0].with.bogus", 7, 7),
+            s("modules[0].with.min_weigh_ins", 6, 22),
+        ]
+    );
+    // A flow list on one line: the second entry's id, not the first's.
+    assert_eq!(
+        positions("modules: [ {id: trend}, {id: trnd} ]\n"),
+        [s("modules[1].id", 3, 30)]
     );
 }

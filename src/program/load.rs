@@ -61,6 +61,7 @@ pub fn parse_program(root: &Path, text: &str) -> Result<Program, Vec<Diagnostic>
         info,
         module_lines,
         underweight_line,
+        source: text.to_string(),
     })
 }
 
@@ -676,6 +677,84 @@ fn entry_column(text: &str, line: u64, index: usize) -> Option<u64> {
         }
     };
     Some(l[..at].chars().count() as u64 + 1)
+}
+
+/// Where `key` is written in entry `index` of `modules:` (`id`, `command`, `with`, or a
+/// setting under `with:`), found by scanning the entry's text in `source` (its lines in a block
+/// list, its part of the line in a flow list on one line): its line, and the 1-based column of
+/// its value when `value` and one is written on that line, else of the key. Without `key`, or
+/// when it is not found there, the entry's own line and column. `None` when the entry's line is
+/// not known. The module registry's errors were at the entry's line alone ("program.yaml:27:
+/// unknown setting `bogus`" for a `with:` on line 28).
+pub fn module_key_position(
+    source: &str,
+    lines: &BTreeMap<usize, u64>,
+    index: usize,
+    key: Option<&str>,
+    value: bool,
+) -> Option<(u64, Option<u64>)> {
+    let &start = lines.get(&index)?;
+    let entry = (start, entry_column(source, start, index));
+    let Some(key) = key else {
+        return Some(entry);
+    };
+    let all: Vec<&str> = source.lines().collect();
+    let first = usize::try_from(start).ok()?.checked_sub(1)?;
+    // The entry's text, as (line index, byte offset where its part starts, its part).
+    let mut parts: Vec<(usize, usize, &str)> = Vec::new();
+    let next = lines.get(&(index + 1));
+    match all.get(first) {
+        Some(l) if !l.trim_start().starts_with('-') => {
+            // A flow list on one line: from this entry's `{` to the next one's.
+            let col = |i: usize| {
+                entry_column(source, start, i)
+                    .and_then(|c| l.char_indices().nth(c as usize - 1).map(|(b, _)| b))
+            };
+            let to = match next {
+                Some(&n) if n == start => col(index + 1).unwrap_or(l.len()),
+                _ => l.len(),
+            };
+            let from = col(index)?;
+            parts.push((first, from, &l[from..to.max(from)]));
+        }
+        _ => {
+            let end = next.map_or(all.len(), |&n| n as usize - 1);
+            for (j, l) in all.iter().enumerate().take(end).skip(first) {
+                let t = l.trim_start();
+                if j > first && !t.is_empty() && !t.starts_with('#') && l.len() == t.len() {
+                    break;
+                }
+                parts.push((j, 0, l));
+            }
+        }
+    }
+    for (j, offset, part) in parts {
+        // Outside a comment.
+        let part = part.split(" #").next().unwrap_or(part);
+        let mut from = 0;
+        while let Some(i) = part[from..].find(key) {
+            let at = from + i;
+            let before = part[..at].chars().next_back();
+            let rest = &part[at + key.len()..];
+            let after = rest.trim_start();
+            if before.is_none_or(|c| matches!(c, ' ' | '{' | ',' | '-' | '\t'))
+                && let Some(v) = after.strip_prefix(':')
+            {
+                let key_byte = offset + at;
+                let v_trim = v.trim_start();
+                let byte = if value && !v_trim.is_empty() {
+                    offset + part.len() - v_trim.len()
+                } else {
+                    key_byte
+                };
+                let line = all[j];
+                let column = line[..byte.min(line.len())].chars().count() as u64 + 1;
+                return Some((j as u64 + 1, Some(column)));
+            }
+            from = at + key.len();
+        }
+    }
+    Some(entry)
 }
 
 /// Letters, digits, `-` and `_`; not empty; at most 64 characters (it names files).
