@@ -4,7 +4,6 @@
 //! (read-only), checks everything and returns the data with every diagnostic. A problem in one
 //! participant never stops the others. The parsers ([`profile`], [`records`]) work on text.
 
-pub mod encoding;
 pub mod loinc;
 pub mod profile;
 pub mod quantity;
@@ -553,7 +552,7 @@ fn read_input(
         blake3: blake3::hash(&bytes).to_hex().to_string(),
         bytes: bytes.len() as u64,
     });
-    match encoding::decode_utf16(&bytes) {
+    match crate::encoding::decode_utf16(&bytes) {
         Some(Ok((text, order))) => {
             ctx.note(format!("read as {order} text"));
             return Some(Ok(text));
@@ -580,7 +579,7 @@ fn read_input(
     };
     match decode_utf8(&bytes, &ctx.file) {
         Ok(t) => Some(Ok(t.to_string())),
-        Err(d) => match encoding::decode_legacy(&bytes) {
+        Err(d) => match crate::encoding::decode_legacy(&bytes) {
             // A legacy 8-bit file (Windows-1252 / Latin-1) is read when it decodes
             // unambiguously; otherwise the UTF-8 error stands, with how to fix it.
             Ok((text, chars)) => {

@@ -34,8 +34,28 @@ pub fn load_program(root: &Path) -> Result<Program, Vec<Diagnostic>> {
         }
         vec![d]
     })?;
-    let text = decode_utf8(&bytes, PROGRAM_FILE).map_err(|d| vec![d])?;
-    parse_program(root, text)
+    let text = decode_program(&bytes).map_err(|d| vec![d])?;
+    parse_program(root, &text)
+}
+
+/// The text of `program.yaml`: UTF-8, or UTF-16 by the rule every input file is read with
+/// ([`crate::encoding::decode_utf16`]: with a byte-order mark, or without one when its bytes
+/// show it). A `profile.yaml` saved as UTF-16 was read while a `program.yaml` saved the same
+/// way was refused ("the file is UTF-16 text; this file is read as UTF-8 only").
+// A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
+#[allow(clippy::result_large_err)]
+pub fn decode_program(bytes: &[u8]) -> Result<std::borrow::Cow<'_, str>, Diagnostic> {
+    match crate::encoding::decode_utf16(bytes) {
+        Some(Ok((text, _))) => Ok(std::borrow::Cow::Owned(text)),
+        Some(Err(why)) => Err(Diagnostic::error(
+            PROGRAM_FILE,
+            format!("{why}; the file is not used"),
+        )
+        .at(1, Some(1))
+        .expected("UTF-8 or UTF-16 text")
+        .hint(UTF8_HINT)),
+        None => decode_utf8(bytes, PROGRAM_FILE).map(std::borrow::Cow::Borrowed),
+    }
 }
 
 /// Parses and checks the text of a program file; `root` is used to resolve relative folders.
@@ -863,8 +883,8 @@ pub fn key_line(text: &str, path: &str) -> Option<u64> {
 /// [`key_position`] in the program's `program.yaml` as it is now on disk, for a message about
 /// a value found wrong after loading, such as a `report.out` a run may not write.
 pub fn key_position_in_file(root: &Path, path: &str) -> Option<(u64, Option<u64>)> {
-    let text = std::fs::read_to_string(root.join(PROGRAM_FILE)).ok()?;
-    key_position(&text, path)
+    let bytes = read_bytes(&root.join(PROGRAM_FILE)).ok()?;
+    key_position(&decode_program(&bytes).ok()?, path)
 }
 
 /// 1-based line of each `modules:` entry, by index, when the entries can be found by scanning
@@ -1305,29 +1325,45 @@ report:
 
     /// A program.yaml saved as UTF-16 was "byte 0xFF at byte column 1" with a hint about
     /// spreadsheets' "CSV UTF-8" (with a byte-order mark), or an "unprintable character" with
-    /// a hint about tabs (without one). Both say what the file is and how to save it.
+    /// a hint about tabs (without one); then it was refused as UTF-16 text, while a
+    /// profile.yaml saved the same way was read. It is read now, by the rule every input file
+    /// is read with, with or without the mark and in either byte order; UTF-16 that does not
+    /// decode is refused with what it is and how to save it as UTF-8.
     #[test]
-    fn a_utf16_program_file_is_named_for_what_it_is() {
+    fn a_utf16_program_file_is_read_as_a_profile_is() {
         let tmp = tempfile::tempdir().unwrap();
-        let utf16: Vec<u8> = GOOD.encode_utf16().flat_map(u16::to_le_bytes).collect();
-        for (bytes, found) in [
-            (
-                [&[0xFF, 0xFE][..], &utf16].concat(),
-                "a UTF-16 little-endian byte-order mark (bytes FF FE)",
-            ),
-            (utf16.clone(), "a zero byte beside each character (UTF-16)"),
+        let le: Vec<u8> = GOOD.encode_utf16().flat_map(u16::to_le_bytes).collect();
+        let be: Vec<u8> = GOOD.encode_utf16().flat_map(u16::to_be_bytes).collect();
+        let utf8 = {
+            std::fs::write(tmp.path().join("program.yaml"), GOOD).unwrap();
+            load_program(tmp.path()).expect("UTF-8 reads")
+        };
+        for bytes in [
+            [&[0xFF, 0xFE][..], &le].concat(),
+            [&[0xFE, 0xFF][..], &be].concat(),
+            le.clone(),
+            be.clone(),
         ] {
-            std::fs::write(tmp.path().join("program.yaml"), bytes).unwrap();
-            let e = load_program(tmp.path()).unwrap_err();
-            let d = &e[0];
+            std::fs::write(tmp.path().join("program.yaml"), &bytes).unwrap();
+            let p = load_program(tmp.path()).unwrap_or_else(|e| panic!("{e:?}"));
+            assert_eq!(p.def, utf8.def);
+            assert_eq!(p.source, utf8.source);
             assert_eq!(
-                d.message,
-                "the file is UTF-16 text; this file is read as UTF-8 only"
+                key_position_in_file(tmp.path(), "program.title"),
+                key_position(GOOD, "program.title")
             );
-            assert_eq!((d.line, d.column), (Some(1), Some(1)));
-            assert_eq!(d.found.as_deref(), Some(found));
-            assert_eq!(d.hint.as_deref(), Some(UTF8_HINT));
         }
+        // Cut off in the middle of a character: refused, saying what it is.
+        let mut odd = [&[0xFF, 0xFE][..], &le].concat();
+        odd.push(b'x');
+        std::fs::write(tmp.path().join("program.yaml"), odd).unwrap();
+        let e = load_program(tmp.path()).unwrap_err();
+        assert_eq!(
+            e[0].message,
+            "the file starts as UTF-16 little-endian text but has an odd number of bytes; it is cut off or not text; the file is not used"
+        );
+        assert_eq!((e[0].line, e[0].column), (Some(1), Some(1)));
+        assert_eq!(e[0].hint.as_deref(), Some(UTF8_HINT));
         // Not valid UTF-8 otherwise: the hint is about saving the file as UTF-8, not a CSV.
         std::fs::write(
             tmp.path().join("program.yaml"),
