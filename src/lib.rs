@@ -30,6 +30,7 @@ pub mod cmd;
 pub(crate) mod csv_out;
 pub mod demo;
 pub mod diag;
+pub(crate) mod encoding;
 pub mod exit_code;
 pub mod group;
 pub mod import;

@@ -4,7 +4,10 @@
 use crate::diag::Diagnostic;
 use crate::group::{GroupReport, ParticipantSummary};
 use crate::modules::ModuleResults;
+use chrono::NaiveDate;
+use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_api::{Flag, ParticipantData, Period, Scalar, TextValue};
+use cohortpress_metric_outcomes::view::{OutcomesView, names::MILESTONES};
 use rayon::prelude::*;
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
@@ -46,16 +49,21 @@ pub struct TidyParticipant {
     pub table_rows: Vec<[String; 7]>,
     /// Flags by module.
     pub flags: Vec<(String, Flag)>,
+    /// Flags of `flags` seen at follow-up only, as (module, code): raised by weigh-ins after
+    /// the day someone who stopped the program left it, not by their records up to that day.
+    pub flags_at_follow_up: Vec<(String, String)>,
     /// Module failures (module, message).
     pub failures: Vec<(String, String)>,
 }
 
 /// Collects a participant's tidy metrics from the module results and their row for the group
-/// step (`summary`: who the group report counts as started and as a completer).
+/// step (`summary`: who the group report counts as started and as a completer), for a period
+/// ending on `period_to`.
 pub fn participant(
     data: &ParticipantData,
     results: &ModuleResults,
     summary: &ParticipantSummary,
+    period_to: NaiveDate,
 ) -> TidyParticipant {
     // As the group step counts them: started needs a positive, finite baseline weight.
     let started = summary.started
@@ -80,6 +88,7 @@ pub fn participant(
         weekly_rows: Vec::new(),
         table_rows: Vec::new(),
         flags: Vec::new(),
+        flags_at_follow_up: results.follow_up_flags.clone(),
         failures: results
             .failures
             .iter()
@@ -106,12 +115,24 @@ pub fn participant(
             }));
         }
         for table in &out.tables {
+            let milestones = module == OutcomesView::MODULE && table.name == MILESTONES;
             for (i, row) in table.rows.iter().enumerate() {
+                let seen = if milestones {
+                    follow_up_milestone(data, period_to, &table.columns, row)
+                } else {
+                    None
+                };
                 for (col, cell) in table.columns.iter().zip(row) {
                     let value = match cell {
                         cohortpress_metric_api::Cell::Number(x) => num(Some(*x)),
                         cohortpress_metric_api::Cell::Text(s) => s.clone(),
                         cohortpress_metric_api::Cell::Empty => String::new(),
+                    };
+                    // A milestone seen at follow-up reads as the participant's report has it.
+                    let value = match (seen, col.name.as_str()) {
+                        (Some(_), "reached") => SEEN_AT_FOLLOW_UP.to_string(),
+                        (Some(d), "date_reached") => d.to_string(),
+                        _ => value,
                     };
                     t.table_rows.push([
                         data.profile.id.clone(),
@@ -129,6 +150,43 @@ pub fn participant(
             .extend(out.flags.iter().map(|s| (module.clone(), s.clone())));
     }
     t
+}
+
+/// How `metrics/tables.csv` writes `reached` for a loss milestone seen at follow-up.
+pub const SEEN_AT_FOLLOW_UP: &str = "seen_at_follow_up";
+
+/// For a row of the outcomes module's `milestones` table: the day a milestone was seen at
+/// follow-up (`crate::modules::run::seen_at_follow_up`), when the trend first reached it after
+/// the `withdrew` day of someone who stopped the program; `None` when it was reached in the
+/// program or not at all. `tables.csv` read "reached yes, date_reached 2026-08-19" for SG-001
+/// of the sample program, who left on 15 Aug 2026 and weighed in next on 5 Sep, where the
+/// participant's report reads "10 % loss · seen at follow-up 5 Sep 2026, after leaving".
+fn follow_up_milestone(
+    data: &ParticipantData,
+    period_to: NaiveDate,
+    columns: &[cohortpress_metric_api::Column],
+    row: &[cohortpress_metric_api::Cell],
+) -> Option<NaiveDate> {
+    let left = data
+        .profile
+        .withdrew
+        .filter(|_| data.profile.follow_up_weigh_ins())?;
+    let cell = |name: &str| {
+        columns
+            .iter()
+            .position(|c| c.name == name)
+            .and_then(|i| row.get(i))
+    };
+    let text = |name: &str| match cell(name) {
+        Some(cohortpress_metric_api::Cell::Text(s)) => Some(s.as_str()),
+        _ => None,
+    };
+    if text("reached") != Some("yes") {
+        return None;
+    }
+    let crossed = NaiveDate::parse_from_str(text("date_reached")?, "%Y-%m-%d").ok()?;
+    let days = crate::modules::run::weigh_in_days(data, period_to);
+    crate::modules::run::seen_at_follow_up(Some(left), &days, crossed)
 }
 
 /// In one participant's `participants.json` record, writes the values and bounds of the
@@ -338,6 +396,7 @@ pub fn render(
     }
     header.extend(columns.texts.iter().map(|(_, m, n)| format!("{m}.{n}")));
     header.push("clinical_flags".into());
+    header.push("clinical_flags_at_follow_up".into());
     header.push("module_failures".into());
     participants.write_record(&header)?;
     weekly.write_record([
@@ -420,7 +479,21 @@ pub fn render(
                 .filter(|(_, f)| f.severity == cohortpress_metric_api::FlagSeverity::Clinical)
                 .map(|(_, f)| f.code.as_str())
                 .collect();
+            // Of them, those seen at follow-up only (after the day someone who stopped the
+            // program left it).
+            let at_follow_up: Vec<&str> = clinical
+                .iter()
+                .copied()
+                .filter(|c| {
+                    r.flags.iter().filter(|(_, f)| f.code == *c).all(|(m, _)| {
+                        r.flags_at_follow_up
+                            .iter()
+                            .any(|(fm, fc)| fm == m && fc == c)
+                    })
+                })
+                .collect();
             rec.push(clinical.into_iter().collect::<Vec<_>>().join(";"));
+            rec.push(at_follow_up.join(";"));
             rec.push(
                 r.failures
                     .iter()
@@ -617,6 +690,13 @@ pub fn datapackage(
         "codes of the flags for a licensed clinician's review, separated by `;`",
     ));
     fields.push(DpField::new(
+        "clinical_flags_at_follow_up",
+        "string",
+        "of clinical_flags, the codes seen at follow-up only, separated by `;`: raised by the \
+         weigh-ins after withdrew of someone whose withdrawal_reason is stopped_program, and not \
+         by their records up to withdrew (the modules are run on both); empty for everyone else",
+    ));
+    fields.push(DpField::new(
         "module_failures",
         "string",
         "ids of the modules that failed for this participant, separated by `;`",
@@ -759,8 +839,10 @@ pub fn datapackage(
              (identified): participant_id, period_from, period_to, enrolled, withdrew, \
              withdrawal_reason, started, completer, groups (the profile's groups: keys), scalars and texts (each \
              [module, {name, label, unit, value, and lower and upper where an interval \
-             exists}]), flags (the flags for a licensed clinician's review) and failures (the \
-             modules that failed for this participant)",
+             exists}]), flags (the flags for a licensed clinician's review), \
+             flags_at_follow_up (of them, [module, code] of each seen at follow-up only, as \
+             clinical_flags_at_follow_up in participants.csv) and failures (the modules that \
+             failed for this participant)",
         ),
     ];
     if group {
@@ -967,6 +1049,7 @@ mod tests {
                 weekly_rows: vec![],
                 table_rows: vec![],
                 flags: vec![],
+                flags_at_follow_up: vec![],
                 failures: vec![],
             });
             !c.not_dates.contains(&("dt".into(), "day".into()))

@@ -1004,7 +1004,8 @@ mod tests {
 
     /// A participant enrolled after the program's end had every row of every file dropped as
     /// "before enrolment": `check` printed 83 such warnings, by kind and then in the details,
-    /// before the one error that made the participant unusable.
+    /// before the one error that made the participant unusable. (Their files are now read
+    /// without that enrolment date; a row that cannot be read is still a warning.)
     #[test]
     fn an_unusable_participant_shows_its_error_first_and_its_warnings_in_one_line() {
         let tmp = program_dir();
@@ -1013,6 +1014,7 @@ mod tests {
         for d in 1..=25 {
             weights.push_str(&format!("2026-05-{d:02},80,kg\n"));
         }
+        weights.push_str("2026-05-26,x,kg\n");
         add(
             tmp.path(),
             "P1",
@@ -1021,7 +1023,7 @@ mod tests {
                 ("weights.csv", &weights),
                 (
                     "intake.csv",
-                    "date,kcal\n2026-05-01,1800\n2026-05-02,1900\n",
+                    "date,kcal\n2026-05-01,1800\n2026-05-02,1900\n2026-05-03,many\n",
                 ),
             ],
         );
@@ -1038,21 +1040,20 @@ mod tests {
         );
         let (code, out) = run(tmp.path());
         assert_eq!(code, exit_code::PARTICIPANT_ERRORS, "{out}");
-        // One warning per file for its rows before enrolment (25 in weights.csv, 2 in
-        // intake.csv).
+        // One warning per file: a weight and an intake that are not numbers.
         assert!(
             out.contains("checked 2 participants: 1 usable, 1 not usable; 1 error, 3 warnings"),
             "{out}"
         );
         // The summary: the error, the other participant's warning, then one line for P1's.
-        assert!(out.contains("summary by kind (2 kinds):\n  error ×1, 1 participant: enrolment date 2026-11-02 is after the program ends (2026-09-30); the participant cannot be used\n      at participants/P1/profile.yaml:5\n  warning ×1, 1 participant: not a number in `weight`"), "{out}");
+        assert!(out.contains("summary by kind (2 kinds):\n  error ×1, 1 participant: enrolment date 2026-11-02 is after the program ends (2026-09-30); the participant cannot be used\n      at participants/P1/profile.yaml:5:11\n  warning ×1, 1 participant: not a number in `weight`"), "{out}");
         assert!(
             out.contains("  warning ×2 in the files of 1 participant that cannot be used (P1): not listed here, as they matter once their errors are fixed (`check --verbose` lists them)\n"),
             "{out}"
         );
         // The details: the error first, the warnings in one line per participant.
         assert!(
-            out.contains("\nP1: not usable (1 error, 2 warnings)\nerror: participants/P1/profile.yaml:5: enrolment date"),
+            out.contains("\nP1: not usable (1 error, 2 warnings)\nerror: participants/P1/profile.yaml:5:11: enrolment date"),
             "{out}"
         );
         assert!(
@@ -1080,18 +1081,11 @@ mod tests {
         let first_warning = p1.find("warning: participants/P1/").unwrap();
         assert!(error_at < first_warning, "{verbose}");
         assert_eq!(
-            p1.matches("rows are dated before enrolment (2026-11-02; 2026-05-")
-                .count(),
+            p1.matches("warning: participants/P1/").count(),
             2,
             "{verbose}"
         );
-        assert!(
-            verbose.contains(
-                "warning ×1, 1 participant: 25 rows are dated before enrolment (2026-11-02; \
-                 2026-05-01 to 2026-05-25, the first at this line); they are not counted\n      \
-                 at participants/P1/weights.csv:2:1"
-            ),
-            "{verbose}"
-        );
+        // The files are not read against the enrolment date that makes the profile unusable.
+        assert!(!verbose.contains("before enrolment"), "{verbose}");
     }
 }

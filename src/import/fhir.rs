@@ -15,7 +15,8 @@
 //! a program exported with `method.text` = its `source` and imported again gives the same
 //! metrics, including the offsets the trend estimates for clinic weigh-ins.
 //!
-//! Units (UCUM): `kg`, `g`, `[lb_av]`, `cm`, `m`, `[in_i]`, `%`, `mmol/mol`, `mg/dL`, `mmol/L`,
+//! Units (UCUM): `kg`, `g`, `[lb_av]` (a weight's also by its `unit` text alone: `lb`, `lbs`,
+//! `pounds`, `kg` …), `cm`, `m`, `[in_i]`, `%`, `mmol/mol`, `mg/dL`, `mmol/L`,
 //! `mm[Hg]`.
 //!
 //! Ids: a FHIR Patient id becomes a participant id through a mapping file the user controls
@@ -159,6 +160,33 @@ fn quantity(q: &Value) -> Option<(f64, &str)> {
     Some((v, code))
 }
 
+/// The unit of a body weight's Quantity, as the weights file writes it (`kg` or `lb`), with
+/// the value in it (grams to kilograms): by its UCUM `code` (`kg`, `g`, `[lb_av]`), else by its
+/// `unit` text, which FHIR leaves free (R4 Quantity: `unit` is the human-readable form), in the
+/// forms exports write: `kg`, `g`, `lb`, `lbs`, `[lb_av]`, `pound(s)`, any case. A weight given
+/// as `{"value": 185, "unit": "lbs"}` without a code was skipped as "unit `lbs`, which is not
+/// read". `Err` with the unit as written when neither is one of these.
+fn weight_quantity(q: &Value) -> Option<Result<(f64, &'static str), &str>> {
+    let v = q["value"].as_f64()?;
+    let by_code = |c: &str| match c {
+        "kg" => Some((v, "kg")),
+        "g" => Some((v / 1000.0, "kg")),
+        "[lb_av]" => Some((v, "lb")),
+        _ => None,
+    };
+    let by_text = |t: &str| match t.trim().to_ascii_lowercase().as_str() {
+        "kg" | "kgs" | "kilogram" | "kilograms" => Some((v, "kg")),
+        "g" | "gram" | "grams" => Some((v / 1000.0, "kg")),
+        "lb" | "lbs" | "[lb_av]" | "pound" | "pounds" => Some((v, "lb")),
+        _ => None,
+    };
+    let (code, unit) = (q["code"].as_str(), q["unit"].as_str());
+    if let Some(found) = code.and_then(by_code).or_else(|| unit.and_then(by_text)) {
+        return Some(Ok(found));
+    }
+    Some(Err(code.or(unit)?))
+}
+
 /// The patient id an Observation is about: the full URL of a Patient in the same Bundle
 /// (`urn:uuid:…` or an absolute URL), a relative `Patient/ID`, or an absolute
 /// `https://server/base/Patient/ID` — FHIR R4 allows a reference to be relative or absolute,
@@ -299,23 +327,13 @@ impl Imported {
         };
         let source = method(obs);
         match code {
-            BODY_WEIGHT | BODY_WEIGHT_MEASURED => match q {
-                Some((v, "kg")) => {
+            BODY_WEIGHT | BODY_WEIGHT_MEASURED => match weight_quantity(&obs["valueQuantity"]) {
+                Some(Ok((v, unit))) => {
                     self.patient(&patient)
                         .weights
-                        .push((when.clone(), v, "kg", source))
+                        .push((when.clone(), v, unit, source))
                 }
-                Some((v, "g")) => {
-                    self.patient(&patient)
-                        .weights
-                        .push((when.clone(), v / 1000.0, "kg", source))
-                }
-                Some((v, "[lb_av]")) => {
-                    self.patient(&patient)
-                        .weights
-                        .push((when.clone(), v, "lb", source))
-                }
-                Some((_, u)) => return bad_unit(self, u),
+                Some(Err(u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
             },
             BODY_HEIGHT => match q {
@@ -1071,6 +1089,48 @@ mod tests {
             files[0].1
         );
         assert!(files[1].1.contains("\n2026-04-02T02:30:00Z,,91.5,kg,\n"));
+    }
+
+    /// A body weight whose Quantity has a `unit` text and no UCUM `code`: pounds written `lbs`,
+    /// `lb`, `LBS`, `pounds` or `[lb_av]` are read as pounds (the weights file keeps `lb`, and a
+    /// run converts them to kg at 0.45359237 kg/lb); `lbs` and `lb` were skipped as "unit `lbs`,
+    /// which is not read". A UCUM code wins over the text. A unit it cannot read is still
+    /// skipped with a problem naming the file, the Observation and the unit.
+    #[test]
+    fn a_weight_in_pounds_written_as_unit_text_is_read() {
+        let obs = |id: &str, day: &str, q: Value| {
+            json!({"resourceType": "Observation", "id": id, "status": "final",
+                "code": {"coding": [{"system": LOINC, "code": BODY_WEIGHT}]},
+                "subject": {"reference": "Patient/p1"}, "effectiveDateTime": day,
+                "valueQuantity": q})
+        };
+        let bundle = json!({"resourceType": "Bundle", "type": "collection", "entry": [
+            {"resource": {"resourceType": "Patient", "id": "p1", "gender": "female", "birthDate": "1980-05-06"}},
+            {"resource": obs("w1", "2026-04-01", json!({"value": 185.0, "unit": "lbs"}))},
+            {"resource": obs("w2", "2026-04-02", json!({"value": 184.5, "unit": "lb"}))},
+            {"resource": obs("w3", "2026-04-03", json!({"value": 184.0, "unit": " LBS "}))},
+            {"resource": obs("w4", "2026-04-04", json!({"value": 183.5, "unit": "pounds"}))},
+            {"resource": obs("w5", "2026-04-05", json!({"value": 183.0, "unit": "[lb_av]"}))},
+            {"resource": obs("w6", "2026-04-06", json!({"value": 82.9, "unit": "lbs", "system": "http://unitsofmeasure.org", "code": "kg"}))},
+            {"resource": obs("w7", "2026-04-07", json!({"value": 82700.0, "unit": "grams"}))},
+            {"resource": obs("w8", "2026-04-08", json!({"value": 13.0, "unit": "stone"}))},
+        ]});
+        let mut imp = Imported::default();
+        imp.add(&bundle, &BTreeMap::new(), "b.json");
+        assert_eq!((imp.observations, imp.skipped), (7, 1));
+        assert_eq!(
+            imp.problems,
+            [
+                "b.json: Observation w8 (LOINC 29463-7) has unit `stone`, which is not read; it is skipped"
+            ]
+        );
+        let files = participant_files("P1", &imp.patients["p1"]);
+        assert_eq!(
+            files[1].1,
+            "date,time,weight,unit,source\n2026-04-01,,185,lb,\n2026-04-02,,184.5,lb,\n\
+             2026-04-03,,184,lb,\n2026-04-04,,183.5,lb,\n2026-04-05,,183,lb,\n\
+             2026-04-06,,82.9,kg,\n2026-04-07,,82.7,kg,\n"
+        );
     }
 
     /// A subject given as an absolute URL, with or without a version, is the same patient as

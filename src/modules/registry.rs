@@ -191,10 +191,21 @@ pub(crate) fn build_with(
     let mut broken: BTreeSet<String> = BTreeSet::new();
 
     for (i, def) in defs.iter().enumerate() {
+        // At the line and column of the key `field` names in this entry (`.id`, `.with`, a
+        // setting's `.with.NAME`): its value for an id or a command, a setting's value when it
+        // is the value that is wrong; else at the entry.
         let at = |d: Diagnostic, field: &str| -> Diagnostic {
+            let key = field.rsplit('.').next().filter(|k| !k.is_empty());
+            let unknown_setting = d.message.starts_with("unknown setting");
             let d = d.field(format!("modules[{i}]{field}"));
-            match program.module_lines.get(&i) {
-                Some(&line) => d.at(line, None),
+            match crate::program::load::module_key_position(
+                &program.source,
+                &program.module_lines,
+                i,
+                key,
+                !unknown_setting,
+            ) {
+                Some((line, column)) => d.at(line, column),
                 None => d,
             }
         };
@@ -282,18 +293,27 @@ pub(crate) fn build_with(
                 }
             },
         };
-        let settings =
-            match spec.resolve_settings(&given) {
-                Ok(s) => Some(s),
-                Err(problems) => {
-                    for p in problems {
-                        diags.push(at(Diagnostic::error("program.yaml", p), ".with").hint(
-                            format!("`cohortpress modules` lists the settings of `{id}`"),
-                        ));
-                    }
-                    None
+        let settings = match spec.resolve_settings(&given) {
+            Ok(s) => Some(s),
+            Err(problems) => {
+                for p in problems {
+                    // Each problem names its setting first (`unknown setting `x``,
+                    // `setting `x` of module …`): at that setting when it is written.
+                    let name = p
+                        .split('`')
+                        .nth(1)
+                        .filter(|n| given.get(n).is_some())
+                        .map(|n| format!(".with.{n}"))
+                        .unwrap_or_else(|| ".with".into());
+                    diags.push(
+                        at(Diagnostic::error("program.yaml", p), &name).hint(format!(
+                            "`cohortpress modules` lists the settings of `{id}`"
+                        )),
+                    );
                 }
-            };
+                None
+            }
+        };
 
         let mut usable = settings.is_some();
         for need in &spec.requires {
@@ -370,13 +390,17 @@ fn floors_agree(program: &Program, entries: &[Entry], diags: &mut Vec<Diagnostic
     let (Some(energy), Some(outcomes)) = (get("energy"), get("outcomes")) else {
         return;
     };
-    let at = program
-        .def
-        .modules
-        .iter()
-        .position(|d| d.id == "outcomes")
-        .and_then(|i| program.module_lines.get(&i).copied());
+    let index = program.def.modules.iter().position(|d| d.id == "outcomes");
     for key in ["intake_floor_female", "intake_floor_male"] {
+        let at = index.and_then(|i| {
+            crate::program::load::module_key_position(
+                &program.source,
+                &program.module_lines,
+                i,
+                Some(key),
+                true,
+            )
+        });
         let e = energy.settings.get(key).and_then(|v| v.as_f64());
         let o = outcomes.settings.get(key).and_then(|v| v.as_f64());
         if let (Some(e), Some(o)) = (e, o)
@@ -397,7 +421,7 @@ fn floors_agree(program: &Program, entries: &[Entry], diags: &mut Vec<Diagnostic
                  clinician's low-intake flag uses the outcomes module's: set both to one value",
             );
             diags.push(match at {
-                Some(line) => d.at(line, None),
+                Some((line, column)) => d.at(line, column),
                 None => d,
             });
         }
@@ -422,7 +446,15 @@ fn energy_before_outcomes(program: &Program, entries: &[Entry], diags: &mut Vec<
         .modules
         .iter()
         .position(|d| d.id == "outcomes")
-        .and_then(|i| program.module_lines.get(&i).copied());
+        .and_then(|i| {
+            crate::program::load::module_key_position(
+                &program.source,
+                &program.module_lines,
+                i,
+                None,
+                false,
+            )
+        });
     let d = Diagnostic::error(
         "program.yaml",
         "module `outcomes` comes before `energy` in `modules:`, so its clinical flags that \
@@ -434,7 +466,7 @@ fn energy_before_outcomes(program: &Program, entries: &[Entry], diags: &mut Vec<
     .found("`outcomes` first")
     .hint("move the `energy` entry above the `outcomes` entry");
     diags.push(match line {
-        Some(l) => d.at(l, None),
+        Some((l, c)) => d.at(l, c),
         None => d,
     });
 }
@@ -477,8 +509,12 @@ fn underweight_agrees(program: &Program, entries: &[Entry], diags: &mut Vec<Diag
              advice stops below the guidance one: set `underweight_bmi_below: {g}` in the \
              outcomes module's `with:` and remove it from `guidance:`"
         ));
+        let column = program.underweight_line.and_then(|_| {
+            crate::program::load::key_position(&program.source, "guidance.underweight_bmi_below")
+                .and_then(|(_, c)| c)
+        });
         diags.push(match program.underweight_line {
-            Some(line) => d.at(line, None),
+            Some(line) => d.at(line, column),
             None => d,
         });
     }

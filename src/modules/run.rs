@@ -10,7 +10,7 @@ use super::registry::ModuleSet;
 use chrono::NaiveDate;
 use cohortpress_metric_api::view::ModuleView;
 use cohortpress_metric_api::{ModuleContext, ModuleOutput, ParticipantData, Period, ProgramInfo};
-use cohortpress_metric_energy::view::EnergyView;
+use cohortpress_metric_energy::view::{EnergyFlag, EnergyView};
 use serde::Serialize;
 use std::collections::BTreeMap;
 use std::panic::{AssertUnwindSafe, catch_unwind};
@@ -64,12 +64,27 @@ pub struct ModuleResults {
     pub outputs: Vec<(String, ModuleOutput)>,
     /// Modules that failed or were skipped for this participant, in run order.
     pub failures: Vec<ModuleFailure>,
+    /// Flags seen at follow-up only, as (module id, flag code): raised on the records of
+    /// someone who stopped the program, follow-up weigh-ins included, and not raised when the
+    /// same module runs on their records up to the `withdrew` day ([`without_follow_up`]).
+    /// They stay in `outputs` (a low BMI at follow-up still matters to a clinician); the
+    /// report, the clinician follow-up list and the tidy metrics say they were seen after
+    /// leaving. Empty for everyone else.
+    pub follow_up_flags: Vec<(String, String)>,
 }
 
 impl ModuleResults {
     /// The output of module `id`, when it succeeded.
     pub fn output(&self, id: &str) -> Option<&ModuleOutput> {
         self.outputs.iter().find(|(m, _)| m == id).map(|(_, o)| o)
+    }
+
+    /// Whether flag `code` of module `module` was seen at follow-up only
+    /// ([`ModuleResults::follow_up_flags`]).
+    pub fn at_follow_up(&self, module: &str, code: &str) -> bool {
+        self.follow_up_flags
+            .iter()
+            .any(|(m, c)| m == module && c == code)
     }
 }
 
@@ -80,6 +95,19 @@ impl ModuleResults {
 /// since the logs end on that day while the follow-up weigh-ins run on. Every other module
 /// sees the follow-up weigh-ins (the weight at the time point is an intention-to-treat outcome).
 pub const PROGRAM_DAYS_ONLY: [&str; 1] = [EnergyView::MODULE];
+
+/// The energy module's note for a window its weight trend does not cover, in the words of a
+/// cut at the withdrawal day: its own words ("The weight trend does not cover enough of the
+/// last 28 days") read oddly beside the follow-up weigh-ins the chart shows, which do cover
+/// them (sample program, SG-002 stopped on 8 Sep 2026 and weighed in on 28–30 Sep).
+fn logs_ended_note(left: NaiveDate) -> String {
+    format!(
+        "Food and activity logs end on {left}, the day of leaving the program, and the weight \
+         after that day is from follow-up weigh-ins, which are not set against logs that had \
+         ended; so the intake implied by the weight trend, the forecast and the options are not \
+         computed for the end of this period."
+    )
+}
 
 /// `data` with the weigh-ins after `withdrew` left out, when it has any (only someone who
 /// stopped the program does: after withdrawn consent none is read); `None` otherwise.
@@ -96,12 +124,45 @@ pub fn without_follow_up(data: &ParticipantData) -> Option<ParticipantData> {
     Some(cut)
 }
 
+/// The days with a weigh-in up to `to`, sorted (with repeats), for [`seen_at_follow_up`].
+pub fn weigh_in_days(data: &ParticipantData, to: NaiveDate) -> Vec<NaiveDate> {
+    let mut days: Vec<NaiveDate> = data
+        .weights
+        .iter()
+        .map(|w| w.date)
+        .filter(|d| *d <= to)
+        .collect();
+    days.sort_unstable();
+    days
+}
+
+/// For a level the weight trend first reached on `crossed` (a loss milestone), the day it was
+/// seen at follow-up, when `crossed` is after `left` (the `withdrew` day of someone who stopped
+/// the program): the first weigh-in on or after `crossed` (`weigh_in_days`, sorted), since
+/// between leaving and a follow-up visit nobody weighed in and the trend's crossing day is a
+/// point on a line drawn across the gap; `crossed` itself when no weigh-in follows. `None`
+/// when it was reached in the program. The participant report and `metrics/tables.csv` both
+/// date milestones seen at follow-up by it.
+pub fn seen_at_follow_up(
+    left: Option<NaiveDate>,
+    weigh_in_days: &[NaiveDate],
+    crossed: NaiveDate,
+) -> Option<NaiveDate> {
+    left.filter(|w| crossed > *w).map(|_| {
+        weigh_in_days
+            .get(weigh_in_days.partition_point(|&x| x < crossed))
+            .copied()
+            .unwrap_or(crossed)
+    })
+}
+
 impl ModuleSet {
     /// Runs every module for one participant, in order. Never fails as a whole: each module's
-    /// problem is a [`ModuleFailure`] in the result. The modules of [`PROGRAM_DAYS_ONLY`] (and
-    /// the ones before them, for their inputs) run a second time on the records up to the
-    /// withdrawal day when there are follow-up weigh-ins after it ([`without_follow_up`]), and
-    /// their results are those of that second run.
+    /// problem is a [`ModuleFailure`] in the result. When there are follow-up weigh-ins after
+    /// the withdrawal day ([`without_follow_up`]) every module runs a second time on the
+    /// records up to that day: the results of the modules of [`PROGRAM_DAYS_ONLY`] are those
+    /// of that second run, and a flag the second run does not raise was seen at follow-up only
+    /// ([`ModuleResults::follow_up_flags`]).
     pub fn run(
         &self,
         program: &ProgramInfo,
@@ -110,19 +171,15 @@ impl ModuleSet {
         data: &ParticipantData,
     ) -> ModuleResults {
         let cut = without_follow_up(data);
-        let last_program_only = self
-            .entries
-            .iter()
-            .rposition(|e| PROGRAM_DAYS_ONLY.contains(&e.spec.id.as_str()));
         let mut results = ModuleResults::default();
         // The same modules on the records up to the withdrawal day (only with follow-up
-        // weigh-ins, and only up to the last module of PROGRAM_DAYS_ONLY).
+        // weigh-ins): the results of PROGRAM_DAYS_ONLY, and the flags raised without the
+        // follow-up weigh-ins.
         let mut program_days = ModuleResults::default();
-        for (i, entry) in self.entries.iter().enumerate() {
+        for entry in &self.entries {
             let program_only = PROGRAM_DAYS_ONLY.contains(&entry.spec.id.as_str());
             let on_cut = cut
                 .as_ref()
-                .filter(|_| last_program_only.is_some_and(|last| i <= last))
                 .map(|cut| self.run_one(entry, program, period, as_of, cut, &program_days));
             let outcome = match &on_cut {
                 Some(o) if program_only => o.clone(),
@@ -132,6 +189,24 @@ impl ModuleSet {
                 program_days.push(&entry.spec.id, o);
             }
             results.push(&entry.spec.id, outcome);
+        }
+        if let Some(left) = cut.as_ref().and_then(|c| c.profile.withdrew) {
+            let mut seen = Vec::new();
+            for (module, out) in &mut results.outputs {
+                let before = program_days.output(module);
+                for f in &mut out.flags {
+                    if PROGRAM_DAYS_ONLY.contains(&module.as_str()) {
+                        if f.code == EnergyFlag::InsufficientData.as_str() {
+                            f.message = logs_ended_note(left);
+                        }
+                        continue;
+                    }
+                    if !before.is_some_and(|b| b.flags.iter().any(|g| g.code == f.code)) {
+                        seen.push((module.clone(), f.code.clone()));
+                    }
+                }
+            }
+            results.follow_up_flags = seen;
         }
         results
     }

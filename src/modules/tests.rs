@@ -136,6 +136,7 @@ fn program(modules_yaml: &str) -> Program {
         def,
         module_lines,
         underweight_line: None,
+        source: String::new(),
     }
 }
 
@@ -272,7 +273,12 @@ fn every_settings_problem_is_reported_on_its_entry() {
     for e in &errs {
         assert_eq!(e.file, "program.yaml");
         assert_eq!(e.line, Some(11));
-        assert_eq!(e.field.as_deref(), Some("modules[1].with"));
+        // Each names its setting.
+        let setting = e.message.split('`').nth(1).unwrap();
+        assert_eq!(
+            e.field.as_deref(),
+            Some(format!("modules[1].with.{setting}").as_str())
+        );
     }
     let text: Vec<&str> = errs.iter().map(|e| e.message.as_str()).collect();
     assert!(
@@ -686,4 +692,132 @@ fn energy_is_given_the_records_up_to_the_withdrawal_day_only_after_stopping_the_
     assert_ne!(os.change_kg, oc.change_kg);
     // Without follow-up weigh-ins (consent, or none after the day) nothing is run twice.
     assert!(without_follow_up(&consent).is_none());
+}
+
+/// A flag that only the follow-up weigh-ins of someone who stopped the program raise is kept
+/// and named as seen at follow-up, and the energy module's note on the window its cut records
+/// do not cover says the logs ended on the day they left. Before, a low BMI seen only at
+/// follow-up was listed like any finding of the program, and the note read "The weight trend
+/// does not cover enough of the last 28 days" beside a chart whose follow-up weigh-ins covered
+/// them (sample program, SG-001 and SG-002 as stopped_program).
+#[test]
+fn flags_raised_by_follow_up_weigh_ins_alone_are_seen_at_follow_up() {
+    use cohortpress_metric_api::{WithdrawalReason, fixture};
+    let prog = program("  - id: trend\n  - id: energy\n  - id: adherence\n  - id: outcomes\n");
+    let (set, diags) = build_with(&prog, registry::builtin_modules()).expect("builds");
+    assert!(errors(&diags).is_empty(), "{diags:?}");
+    // Left on the period's first day (day 56), after losing 0.6 kg a week; losing 0.25 kg a
+    // day (1.75 kg a week) at follow-up, to about 6.8 kg less on day 83.
+    let left = fixture::period().from;
+    let mut stopped = fixture::participant();
+    for w in &mut stopped.weights {
+        let after = (w.date - left).num_days().max(0) as f64;
+        w.weight = Mass::from_kg(w.weight.kg() - 0.25 * after);
+    }
+    stopped.profile.withdrew = Some(left);
+    stopped.profile.withdrawal_reason = WithdrawalReason::StoppedProgram;
+    stopped.intake.retain(|x| x.date <= left);
+    stopped.activity.retain(|x| x.date <= left);
+    stopped.sessions.retain(|x| x.date <= left);
+    stopped.labs.retain(|x| x.date <= left);
+    let mut consent = stopped.clone();
+    consent.profile.withdrawal_reason = WithdrawalReason::Consent;
+    consent.weights.retain(|w| w.date <= left);
+    let spec = registry::builtin_modules()[0].spec();
+    let fx = fixture::context(&spec, &[]);
+    let (prog_info, period, as_of) = (fx.program, fx.period, fx.as_of);
+    let run = |p: &ParticipantData| set.run(&prog_info, period, as_of, p);
+    let (s, c) = (run(&stopped), run(&consent));
+    let codes = |r: &ModuleResults, m: &str| -> Vec<String> {
+        r.output(m)
+            .unwrap()
+            .flags
+            .iter()
+            .map(|f| f.code.clone())
+            .collect()
+    };
+    // The fast loss is kept, and is the only flag seen at follow-up only.
+    assert!(codes(&s, "outcomes").contains(&"fast_loss".to_string()));
+    assert!(!codes(&c, "outcomes").contains(&"fast_loss".to_string()));
+    assert_eq!(
+        s.follow_up_flags,
+        vec![("outcomes".to_string(), "fast_loss".to_string())]
+    );
+    assert!(s.at_follow_up("outcomes", "fast_loss"));
+    assert!(!s.at_follow_up("energy", "fast_loss"));
+    assert!(c.follow_up_flags.is_empty());
+    // The energy note names the day the logs ended; with withdrawn consent (no follow-up
+    // weigh-ins) the module's own words stay.
+    let note = |r: &ModuleResults| {
+        r.output("energy")
+            .unwrap()
+            .flags
+            .iter()
+            .find(|f| f.code == "insufficient_data")
+            .map(|f| f.message.clone())
+    };
+    assert_eq!(
+        note(&s).as_deref(),
+        Some(
+            "Food and activity logs end on 2026-03-02, the day of leaving the program, and the \
+             weight after that day is from follow-up weigh-ins, which are not set against logs \
+             that had ended; so the intake implied by the weight trend, the forecast and the \
+             options are not computed for the end of this period."
+        )
+    );
+    assert!(
+        note(&c).is_some_and(|n| n.starts_with("The weight trend does not cover enough")),
+        "{:?}",
+        note(&c)
+    );
+}
+
+/// The module registry's errors are at the line and column of what is wrong, as the other
+/// program.yaml errors are: an unknown module at its id's value, an unknown setting at its
+/// key, a setting's bad value at the value, in block and flow style, and on a flow list on one
+/// line at its own entry. They were at the entry's line alone ("program.yaml:27: unknown
+/// setting `bogus` for module `trend`" for a `with:` on line 28).
+#[test]
+fn registry_errors_name_the_line_and_column_of_the_id_or_setting() {
+    let positions = |modules: &str| -> Vec<(String, Option<u64>, Option<u64>)> {
+        let text = format!(
+            "format_version: 1\nprogram: {{id: p, title: T, start: 2027-01-01, end: 2027-12-31}}\n\
+             {modules}"
+        );
+        let prog = crate::program::load::parse_program(std::path::Path::new("."), &text)
+            .expect("the program parses");
+        let diags = match build_with(&prog, registry::builtin_modules()) {
+            Ok((_, d)) | Err(d) => d,
+        };
+        diags
+            .into_iter()
+            .map(|d| {
+                let field = d.field.clone().unwrap_or_default();
+                (field, d.line, d.column)
+            })
+            .collect()
+    };
+    let s = |f: &str, l: u64, c: u64| (f.to_string(), Some(l), Some(c));
+    assert_eq!(
+        positions(
+            "modules:\n  - id: trend\n    with: { plateau_window_days: 5, bogus: 1 }   # a comment: x\n  - id: energy\n  - id: adherance\n"
+        ),
+        [
+            s("modules[0].with.bogus", 5, 37),
+            s("modules[0].with.plateau_window_days", 5, 34),
+            s("modules[2].id", 7, 9),
+        ]
+    );
+    assert_eq!(
+        positions("modules:\n  - id: trend\n    with:\n      min_weigh_ins: 1\n      bogus: 2\n"),
+        [
+            s("modules[0].with.bogus", 7, 7),
+            s("modules[0].with.min_weigh_ins", 6, 22),
+        ]
+    );
+    // A flow list on one line: the second entry's id, not the first's.
+    assert_eq!(
+        positions("modules: [ {id: trend}, {id: trnd} ]\n"),
+        [s("modules[1].id", 3, 30)]
+    );
 }

@@ -68,6 +68,7 @@ mod tests {
         ModuleResults {
             outputs: vec![(TrendView::MODULE.into(), out)],
             failures: vec![],
+            follow_up_flags: vec![],
         }
     }
 

@@ -4,7 +4,6 @@
 //! (read-only), checks everything and returns the data with every diagnostic. A problem in one
 //! participant never stops the others. The parsers ([`profile`], [`records`]) work on text.
 
-pub mod encoding;
 pub mod loinc;
 pub mod profile;
 pub mod quantity;
@@ -227,35 +226,6 @@ fn enrolled_long_before_start(
         ))
         .found(enrolled.to_string())
         .hint("check the year");
-    if let Some(l) = line {
-        d = d.at(l, None);
-    }
-    Some(d)
-}
-
-/// An error on `enrolled` when it is after the program's last day: `2062-04-01` for
-/// `2026-04-01` dropped every row of every file as "before enrolment", and the participant
-/// had no report and was left out of the group figures while the run reported only warnings.
-/// (Enrolled after a *period's* end but within the program is read: no report for that
-/// period, as the README says.)
-fn enrolled_after_end(
-    enrolled: NaiveDate,
-    end: NaiveDate,
-    ctx: &FileCtx,
-    line: Option<u64>,
-) -> Option<Diagnostic> {
-    if enrolled <= end {
-        return None;
-    }
-    let mut d = ctx
-        .error(format!(
-            "enrolment date {enrolled} is after the program ends ({end}); the participant \
-             cannot be used"
-        ))
-        .field("enrolled")
-        .expected(format!("an enrolment date on or before {end}"))
-        .found(enrolled.to_string())
-        .hint("check the year; if the program runs longer, change program.end");
     if let Some(l) = line {
         d = d.at(l, None);
     }
@@ -582,7 +552,7 @@ fn read_input(
         blake3: blake3::hash(&bytes).to_hex().to_string(),
         bytes: bytes.len() as u64,
     });
-    match encoding::decode_utf16(&bytes) {
+    match crate::encoding::decode_utf16(&bytes) {
         Some(Ok((text, order))) => {
             ctx.note(format!("read as {order} text"));
             return Some(Ok(text));
@@ -609,7 +579,7 @@ fn read_input(
     };
     match decode_utf8(&bytes, &ctx.file) {
         Ok(t) => Some(Ok(t.to_string())),
-        Err(d) => match encoding::decode_legacy(&bytes) {
+        Err(d) => match crate::encoding::decode_legacy(&bytes) {
             // A legacy 8-bit file (Windows-1252 / Latin-1) is read when it decodes
             // unambiguously; otherwise the UTF-8 error stands, with how to fix it.
             Ok((text, chars)) => {
@@ -829,18 +799,24 @@ pub fn load_opened(
         Some(Ok(text)) => {
             enrolled_line = crate::program::load::key_line(&text, "enrolled");
             height_line = crate::program::load::key_line(&text, "height");
-            profile::parse_profile(&text, id, &program.info.targets, &pctx, &mut diags).map(
-                |mut p| {
-                    group_keys_as_the_program_names_them(
-                        &mut p,
-                        &program.def.report.group_by,
-                        &pctx,
-                        crate::program::load::key_line(&text, "groups"),
-                        &mut diags,
-                    );
-                    p
-                },
+            profile::parse_profile(
+                &text,
+                id,
+                &program.info.targets,
+                program.info.end,
+                &pctx,
+                &mut diags,
             )
+            .map(|mut p| {
+                group_keys_as_the_program_names_them(
+                    &mut p,
+                    &program.def.report.group_by,
+                    &pctx,
+                    crate::program::load::key_line(&text, "groups"),
+                    &mut diags,
+                );
+                p
+            })
         }
     };
     // CSV files are checked even when the profile is unusable, so every problem of the folder
@@ -899,12 +875,6 @@ pub fn load_opened(
     if let Some(p) = profile.as_ref().filter(|_| profile_usable)
         && let Some(d) =
             enrolled_long_before_start(p.enrolled, program.info.start, &pctx, enrolled_line)
-    {
-        diags.push(d);
-        profile_usable = false;
-    }
-    if let Some(p) = profile.as_ref().filter(|_| profile_usable)
-        && let Some(d) = enrolled_after_end(p.enrolled, program.info.end, &pctx, enrolled_line)
     {
         diags.push(d);
         profile_usable = false;

@@ -281,12 +281,13 @@ pub fn whole_years(birth: NaiveDate, on: NaiveDate) -> i32 {
     y
 }
 
-/// Parses and checks `profile.yaml` for the folder `folder_id`. Returns the profile when it
-/// has no errors (warnings may still be pushed).
+/// Parses and checks `profile.yaml` for the folder `folder_id`, in a program whose last day is
+/// `program_end`. Returns the profile when it has no errors (warnings may still be pushed).
 pub fn parse_profile(
     text: &str,
     folder_id: &str,
     program_targets: &Targets,
+    program_end: NaiveDate,
     ctx: &FileCtx,
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Profile> {
@@ -325,6 +326,29 @@ pub fn parse_profile(
                 .hint("the folder name is the participant id; make them the same"),
         ));
     }
+    // An enrolment after the program's last day: `2062-04-01` for `2026-04-01` dropped every
+    // row of every file as "before enrolment", and the participant had no report and was left
+    // out of the group figures while the run reported only warnings. (Enrolled after a
+    // *period's* end but within the program is read: no report for that period, as the README
+    // says.) It is the error, at `enrolled`, and no age is computed from it: `enrolled:
+    // 9999-12-31` with a birth date read "age at enrolment 8024 is outside the adult range" at
+    // `birth_date`.
+    let enrolled = match def.enrolled {
+        Some(e) if e > program_end => {
+            diags.push(at(
+                "enrolled",
+                ctx.error(format!(
+                    "enrolment date {e} is after the program ends ({program_end}); the \
+                     participant cannot be used"
+                ))
+                .expected(format!("an enrolment date on or before {program_end}"))
+                .found(e.to_string())
+                .hint("check the year; if the program runs longer, change program.end"),
+            ));
+            None
+        }
+        e => e,
+    };
     // A key whose value could not be read was still given (its problem is reported already).
     let given = |key: &str, read: bool| read || def.failed.contains(&key);
     let age_years = match (
@@ -351,7 +375,7 @@ pub fn parse_profile(
             );
             None
         }
-        _ => match (def.birth_date, def.age, def.enrolled) {
+        _ => match (def.birth_date, def.age, enrolled) {
             (Some(b), None, Some(enrolled)) => {
                 if b >= enrolled {
                     diags.push(at(
@@ -441,7 +465,7 @@ pub fn parse_profile(
                 .hint("check the number and its unit"),
         ));
     }
-    if let (Some(wd), Some(enrolled)) = (def.withdrew, def.enrolled)
+    if let (Some(wd), Some(enrolled)) = (def.withdrew, enrolled)
         && wd < enrolled
     {
         diags.push(at(
@@ -608,7 +632,8 @@ flags: [glucose-lowering-medication]
     fn parse(text: &str) -> (Option<Profile>, Vec<Diagnostic>) {
         let ctx = FileCtx::new("LW-0147", "participants/LW-0147/profile.yaml");
         let mut d = Vec::new();
-        let p = parse_profile(text, "LW-0147", &Targets::default(), &ctx, &mut d);
+        let end = NaiveDate::from_ymd_opt(2027, 12, 31).unwrap();
+        let p = parse_profile(text, "LW-0147", &Targets::default(), end, &ctx, &mut d);
         (p, d)
     }
 
@@ -935,6 +960,52 @@ flags: [glucose-lowering-medication]
         assert_eq!(d[0].line, Some(1), "{}", d[0]);
         let (p, _) = parse(&GOOD.replace("birth_date: 1983-09-14", "age: 7"));
         assert!(p.is_none());
+    }
+
+    /// `enrolled: 9999-12-31` beside a birth date read "age at enrolment 8016 is outside the
+    /// adult range" at `birth_date`; it is now the enrolment date's error, at its own line and
+    /// column, with what was expected (a day on or before the program's last, here 2027-12-31).
+    #[test]
+    fn an_enrolment_after_the_program_is_the_enrolment_dates_error_not_an_age() {
+        for date in ["9999-12-31", "2028-01-01"] {
+            let (p, d) = parse(&GOOD.replace("enrolled: 2027-03-01", &format!("enrolled: {date}")));
+            assert!(p.is_none());
+            assert_eq!(d.len(), 1, "{d:#?}");
+            let e = &d[0];
+            assert_eq!(
+                (
+                    e.severity,
+                    e.line,
+                    e.column,
+                    e.field.as_deref(),
+                    e.expected.as_deref(),
+                    e.found.as_deref()
+                ),
+                (
+                    Severity::Error,
+                    Some(6),
+                    Some(11),
+                    Some("enrolled"),
+                    Some("an enrolment date on or before 2027-12-31"),
+                    Some(date)
+                )
+            );
+            assert_eq!(
+                e.message,
+                format!(
+                    "enrolment date {date} is after the program ends (2027-12-31); the \
+                     participant cannot be used"
+                )
+            );
+        }
+        // On the program's last day: read, with the age at that day.
+        let (p, d) = parse(
+            &GOOD
+                .replace("enrolled: 2027-03-01", "enrolled: 2027-12-31")
+                .replace("withdrew: 2027-06-20\n", ""),
+        );
+        assert!(d.is_empty(), "{d:#?}");
+        assert_eq!(p.unwrap().age_years, 44.0);
     }
 
     #[test]

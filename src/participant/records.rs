@@ -1816,7 +1816,15 @@ fn as_written(c: &Cells<'_>, col: &str, value: f64, unit: &str) -> String {
 /// date-times: the row is dropped, with a warning at the end's cell, when either has no time
 /// of day, the end is before the start, or the span is longer than one activity can last
 /// ([`MAX_ACTIVITY_MINUTES`]). A span across midnight is dated by the start.
-fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
+///
+/// A time of day alone under a header that says UTC (`Start Time (UTC)`, `End Time (UTC)`
+/// beside a `Date` column) is that time on the row's date in UTC, converted to
+/// `input.time_zone` as a weigh-in's UTC time is; with it comes the start's local day
+/// (`Some` only then), on which the row counts. Such times were read as local times: with
+/// Europe/Berlin, `2026-05-04,23:30,23:50` read as 20 minutes on 4 May, not on 5 May
+/// (01:30–01:50 local), and in America/New_York `2026-09-11,02:00,02:40` counted on 11 Sep,
+/// not on the evening of 10 Sep when it happened.
+fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<(f64, Option<When>)> {
     // The row's date was read (and any problem with it named) before the row's values.
     let day = c.when("date", &mut Vec::new())?;
     // A start or end beside a date column may be a time of day alone (`07:10`, `7:10 PM`):
@@ -1826,15 +1834,35 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
             .iter()
             .find_map(|f| NaiveTime::parse_from_str(s, f).ok())
     };
-    let at = |col: &str, on: NaiveDate, d: &mut Vec<Diagnostic>| -> Option<When> {
+    // A time of day alone under a UTC header: the instant, and the local date and time.
+    type Utc = Option<chrono::DateTime<chrono::FixedOffset>>;
+    let at = |col: &str, on: NaiveDate, d: &mut Vec<Diagnostic>| -> Option<(When, Utc)> {
         let raw = c.required_text(col, d)?;
         match time_only(&raw) {
-            Some(t) => Some(When {
-                date: on,
-                time: Some(t),
-                from_utc: false,
-            }),
-            None => c.when(col, d),
+            Some(t) if c.table.span_in_utc(col) => {
+                let instant = on.and_time(t).and_utc().fixed_offset();
+                let local = match &c.opts.time_zone {
+                    Some(z) => z.local(instant),
+                    None => instant.naive_utc(),
+                };
+                Some((
+                    When {
+                        date: local.date(),
+                        time: Some(local.time()),
+                        from_utc: true,
+                    },
+                    Some(instant),
+                ))
+            }
+            Some(t) => Some((
+                When {
+                    date: on,
+                    time: Some(t),
+                    from_utc: false,
+                },
+                None,
+            )),
+            None => c.when(col, d).map(|w| (w, None)),
         }
     };
     let start_col = if c.table.column("start").is_some() {
@@ -1842,12 +1870,14 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
     } else {
         "date"
     };
-    let start = if start_col == "start" {
+    let (start, start_utc) = if start_col == "start" {
         at("start", day.date, d)?
     } else {
-        day
+        (day, None)
     };
-    let end = at("end", start.date, d)?;
+    // A time alone is on the start's day as written: its UTC day for a UTC start.
+    let end_on = start_utc.map_or(start.date, |t| t.date_naive());
+    let (end, end_utc) = at("end", end_on, d)?;
     let (start_raw, end_raw) = (
         c.text(start_col).unwrap_or_default(),
         c.text("end").unwrap_or_default(),
@@ -1863,14 +1893,21 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
         return None;
     };
     let (local0, local1) = (start.date.and_time(t0), end.date.and_time(t1));
-    let minutes = match &c.opts.time_zone {
+    let minutes = match (&c.opts.time_zone, start_utc, end_utc) {
+        (_, Some(u0), Some(u1)) => (u1 - u0).num_seconds() as f64 / 60.0,
         // Without `input.time_zone` the two clock times are taken as written, on one clock
         // (as before the zone was read here): an activity across a daylight-saving change is
         // an hour off, which only the zone can tell.
-        None => (local1 - local0).num_seconds() as f64 / 60.0,
-        Some(zone) => {
-            let t0 = zoned_instant(c, start_col, local0, zone, &found, d)?;
-            let t1 = zoned_instant(c, "end", local1, zone, &found, d)?;
+        (None, ..) => (local1 - local0).num_seconds() as f64 / 60.0,
+        (Some(zone), u0, u1) => {
+            let t0 = match u0 {
+                Some(t) => t,
+                None => zoned_instant(c, start_col, local0, zone, &found, d)?,
+            };
+            let t1 = match u1 {
+                Some(t) => t,
+                None => zoned_instant(c, "end", local1, zone, &found, d)?,
+            };
             (t1 - t0).num_seconds() as f64 / 60.0
         }
     };
@@ -1900,7 +1937,10 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<f64> {
     }
     c.table
         .recognised("durations as the time from each activity's start to its end");
-    Some(minutes)
+    if start.from_utc {
+        c.table.note_utc_converted();
+    }
+    Some((minutes, Some(start).filter(|s| s.from_utc)))
 }
 
 /// The instant of an activity's start or end (`col`, read as the local `local`) in the
@@ -2016,8 +2056,14 @@ pub fn parse_activity(
         } else {
             c.required_text("minutes", d)?
         };
+        // The start's local day, when a UTC start moved it off the row's date.
+        let mut local_start = None;
         let minutes = match split_duration(&raw) {
-            _ if from_span => span_minutes(c, d)?,
+            _ if from_span => {
+                let (m, start) = span_minutes(c, d)?;
+                local_start = start;
+                m
+            }
             WrittenDuration::Plain(_) if let Some(h) = clock_header => {
                 d.push(
                     c.warn("minutes", format!("a number alone under a header of durations written as `{h}`: minutes, hours or seconds cannot be told; the row is dropped"))
@@ -2147,8 +2193,21 @@ pub fn parse_activity(
             Ok(s) => s,
             Err(Dropped) => None,
         };
-        Some((activity, minutes, met, met_source, steps))
+        Some((activity, minutes, met, met_source, steps, local_start))
     });
+    // A row whose start was a UTC time counts on the start's local day.
+    let rows: Vec<_> = rows
+        .into_iter()
+        .map(|r| {
+            let (activity, minutes, met, met_source, steps, local) = r.value;
+            Parsed {
+                line: r.line,
+                date: local.map_or(r.date, |w| w.date),
+                time: local.map_or(r.time, |w| w.time),
+                value: (activity, minutes, met, met_source, steps),
+            }
+        })
+        .collect();
     if !settle_unit_conflicts(&conflicts, declared_rows, ctx, diags) {
         return None;
     }

@@ -158,6 +158,9 @@ pub struct Table {
     utc_converted: Cell<bool>,
     /// Set when the date column's header says its times are UTC (`Date (UTC)`).
     dates_in_utc: bool,
+    /// An activity's `start` and `end` columns (beside a date column) whose headers say
+    /// their times are UTC (`Start Time (UTC)`).
+    utc_spans: Vec<&'static str>,
     /// The date system of the file's spreadsheet serial dates, with the first one read (as
     /// written, and its date), when it has any.
     serial_dates: Option<(SerialDates, String, NaiveDate)>,
@@ -258,6 +261,19 @@ impl Table {
         self.headers.get(col).map(String::as_str)
     }
 
+    /// Notes that a row's time of day was a UTC time, converted to the local time zone (the
+    /// file's note says so, as for dates with UTC times).
+    pub fn note_utc_converted(&self) {
+        self.timestamps.set(true);
+        self.utc_converted.set(true);
+    }
+
+    /// Whether the header of an activity's `start` or `end` column (beside a date column) says
+    /// its times are UTC (`Start Time (UTC)`, `End (GMT)`), as `Date (UTC)` does for a date.
+    pub fn span_in_utc(&self, col: &str) -> bool {
+        self.utc_spans.contains(&col)
+    }
+
     /// Whether a field of `row` outside our columns (a `Meal` column, say) holds one of
     /// `labels` (lowercase), whatever its case, spacing or final colon (`TOTAL:`).
     pub fn row_labelled(&self, row: &Row, labels: &[&str]) -> bool {
@@ -311,6 +327,7 @@ impl Table {
             timestamps: Cell::new(false),
             utc_converted: Cell::new(false),
             dates_in_utc: false,
+            utc_spans: Vec::new(),
             serial_dates: None,
             numeric_order: None,
             numeric_example: None,
@@ -1053,6 +1070,7 @@ fn read_records(
     let mut mapped_units: Vec<(&'static str, String)> = Vec::new();
     let mut renamed = Vec::new();
     let mut dates_in_utc = false;
+    let mut utc_spans = Vec::new();
     let mut usable = true;
     let mut extra = Vec::new();
     // The field of each `extra` warning, in step with it.
@@ -1250,12 +1268,24 @@ fn read_records(
                     }
                 }
             } else {
+                let says_utc = |i: usize| {
+                    matches!(
+                        header_key(&written[i]).1.as_deref(),
+                        Some("utc" | "gmt" | "z")
+                    )
+                };
                 if beside {
                     columns.insert("start", s);
                     taken.push(s);
+                    if says_utc(s) {
+                        utc_spans.push("start");
+                    }
                 }
                 columns.insert("end", e);
                 taken.push(e);
+                if says_utc(e) {
+                    utc_spans.push("end");
+                }
                 ctx.note(format!(
                     "no duration column: each activity's minutes are its end (`{}`) less its start (`{}`), dated by {}",
                     written[e],
@@ -1491,6 +1521,7 @@ fn read_records(
         renamed,
         header_line,
         dates_in_utc,
+        utc_spans,
         ..Table::empty(delimiter, sniffed)
     };
     let mut records = 0usize;

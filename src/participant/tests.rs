@@ -465,8 +465,8 @@ fn an_enrolment_after_the_program_ends_is_an_error_at_its_line() {
         .find(|d| d.severity == crate::diag::Severity::Error)
         .expect("an error");
     assert_eq!(
-        (e.file.as_str(), e.line),
-        ("participants/P1/profile.yaml", Some(5))
+        (e.file.as_str(), e.line, e.column),
+        ("participants/P1/profile.yaml", Some(5), Some(11))
     );
     assert_eq!(
         e.message,

@@ -34,8 +34,28 @@ pub fn load_program(root: &Path) -> Result<Program, Vec<Diagnostic>> {
         }
         vec![d]
     })?;
-    let text = decode_utf8(&bytes, PROGRAM_FILE).map_err(|d| vec![d])?;
-    parse_program(root, text)
+    let text = decode_program(&bytes).map_err(|d| vec![d])?;
+    parse_program(root, &text)
+}
+
+/// The text of `program.yaml`: UTF-8, or UTF-16 by the rule every input file is read with
+/// ([`crate::encoding::decode_utf16`]: with a byte-order mark, or without one when its bytes
+/// show it). A `profile.yaml` saved as UTF-16 was read while a `program.yaml` saved the same
+/// way was refused ("the file is UTF-16 text; this file is read as UTF-8 only").
+// A Diagnostic is the error on purpose (it is what the user sees); it is built rarely.
+#[allow(clippy::result_large_err)]
+pub fn decode_program(bytes: &[u8]) -> Result<std::borrow::Cow<'_, str>, Diagnostic> {
+    match crate::encoding::decode_utf16(bytes) {
+        Some(Ok((text, _))) => Ok(std::borrow::Cow::Owned(text)),
+        Some(Err(why)) => Err(Diagnostic::error(
+            PROGRAM_FILE,
+            format!("{why}; the file is not used"),
+        )
+        .at(1, Some(1))
+        .expected("UTF-8 or UTF-16 text")
+        .hint(UTF8_HINT)),
+        None => decode_utf8(bytes, PROGRAM_FILE).map(std::borrow::Cow::Borrowed),
+    }
 }
 
 /// Parses and checks the text of a program file; `root` is used to resolve relative folders.
@@ -61,6 +81,7 @@ pub fn parse_program(root: &Path, text: &str) -> Result<Program, Vec<Diagnostic>
         info,
         module_lines,
         underweight_line,
+        source: text.to_string(),
     })
 }
 
@@ -678,6 +699,84 @@ fn entry_column(text: &str, line: u64, index: usize) -> Option<u64> {
     Some(l[..at].chars().count() as u64 + 1)
 }
 
+/// Where `key` is written in entry `index` of `modules:` (`id`, `command`, `with`, or a
+/// setting under `with:`), found by scanning the entry's text in `source` (its lines in a block
+/// list, its part of the line in a flow list on one line): its line, and the 1-based column of
+/// its value when `value` and one is written on that line, else of the key. Without `key`, or
+/// when it is not found there, the entry's own line and column. `None` when the entry's line is
+/// not known. The module registry's errors were at the entry's line alone ("program.yaml:27:
+/// unknown setting `bogus`" for a `with:` on line 28).
+pub fn module_key_position(
+    source: &str,
+    lines: &BTreeMap<usize, u64>,
+    index: usize,
+    key: Option<&str>,
+    value: bool,
+) -> Option<(u64, Option<u64>)> {
+    let &start = lines.get(&index)?;
+    let entry = (start, entry_column(source, start, index));
+    let Some(key) = key else {
+        return Some(entry);
+    };
+    let all: Vec<&str> = source.lines().collect();
+    let first = usize::try_from(start).ok()?.checked_sub(1)?;
+    // The entry's text, as (line index, byte offset where its part starts, its part).
+    let mut parts: Vec<(usize, usize, &str)> = Vec::new();
+    let next = lines.get(&(index + 1));
+    match all.get(first) {
+        Some(l) if !l.trim_start().starts_with('-') => {
+            // A flow list on one line: from this entry's `{` to the next one's.
+            let col = |i: usize| {
+                entry_column(source, start, i)
+                    .and_then(|c| l.char_indices().nth(c as usize - 1).map(|(b, _)| b))
+            };
+            let to = match next {
+                Some(&n) if n == start => col(index + 1).unwrap_or(l.len()),
+                _ => l.len(),
+            };
+            let from = col(index)?;
+            parts.push((first, from, &l[from..to.max(from)]));
+        }
+        _ => {
+            let end = next.map_or(all.len(), |&n| n as usize - 1);
+            for (j, l) in all.iter().enumerate().take(end).skip(first) {
+                let t = l.trim_start();
+                if j > first && !t.is_empty() && !t.starts_with('#') && l.len() == t.len() {
+                    break;
+                }
+                parts.push((j, 0, l));
+            }
+        }
+    }
+    for (j, offset, part) in parts {
+        // Outside a comment.
+        let part = part.split(" #").next().unwrap_or(part);
+        let mut from = 0;
+        while let Some(i) = part[from..].find(key) {
+            let at = from + i;
+            let before = part[..at].chars().next_back();
+            let rest = &part[at + key.len()..];
+            let after = rest.trim_start();
+            if before.is_none_or(|c| matches!(c, ' ' | '{' | ',' | '-' | '\t'))
+                && let Some(v) = after.strip_prefix(':')
+            {
+                let key_byte = offset + at;
+                let v_trim = v.trim_start();
+                let byte = if value && !v_trim.is_empty() {
+                    offset + part.len() - v_trim.len()
+                } else {
+                    key_byte
+                };
+                let line = all[j];
+                let column = line[..byte.min(line.len())].chars().count() as u64 + 1;
+                return Some((j as u64 + 1, Some(column)));
+            }
+            from = at + key.len();
+        }
+    }
+    Some(entry)
+}
+
 /// Letters, digits, `-` and `_`; not empty; at most 64 characters (it names files).
 pub fn is_plain_id(s: &str) -> bool {
     !s.is_empty()
@@ -784,8 +883,8 @@ pub fn key_line(text: &str, path: &str) -> Option<u64> {
 /// [`key_position`] in the program's `program.yaml` as it is now on disk, for a message about
 /// a value found wrong after loading, such as a `report.out` a run may not write.
 pub fn key_position_in_file(root: &Path, path: &str) -> Option<(u64, Option<u64>)> {
-    let text = std::fs::read_to_string(root.join(PROGRAM_FILE)).ok()?;
-    key_position(&text, path)
+    let bytes = read_bytes(&root.join(PROGRAM_FILE)).ok()?;
+    key_position(&decode_program(&bytes).ok()?, path)
 }
 
 /// 1-based line of each `modules:` entry, by index, when the entries can be found by scanning
@@ -1226,29 +1325,45 @@ report:
 
     /// A program.yaml saved as UTF-16 was "byte 0xFF at byte column 1" with a hint about
     /// spreadsheets' "CSV UTF-8" (with a byte-order mark), or an "unprintable character" with
-    /// a hint about tabs (without one). Both say what the file is and how to save it.
+    /// a hint about tabs (without one); then it was refused as UTF-16 text, while a
+    /// profile.yaml saved the same way was read. It is read now, by the rule every input file
+    /// is read with, with or without the mark and in either byte order; UTF-16 that does not
+    /// decode is refused with what it is and how to save it as UTF-8.
     #[test]
-    fn a_utf16_program_file_is_named_for_what_it_is() {
+    fn a_utf16_program_file_is_read_as_a_profile_is() {
         let tmp = tempfile::tempdir().unwrap();
-        let utf16: Vec<u8> = GOOD.encode_utf16().flat_map(u16::to_le_bytes).collect();
-        for (bytes, found) in [
-            (
-                [&[0xFF, 0xFE][..], &utf16].concat(),
-                "a UTF-16 little-endian byte-order mark (bytes FF FE)",
-            ),
-            (utf16.clone(), "a zero byte beside each character (UTF-16)"),
+        let le: Vec<u8> = GOOD.encode_utf16().flat_map(u16::to_le_bytes).collect();
+        let be: Vec<u8> = GOOD.encode_utf16().flat_map(u16::to_be_bytes).collect();
+        let utf8 = {
+            std::fs::write(tmp.path().join("program.yaml"), GOOD).unwrap();
+            load_program(tmp.path()).expect("UTF-8 reads")
+        };
+        for bytes in [
+            [&[0xFF, 0xFE][..], &le].concat(),
+            [&[0xFE, 0xFF][..], &be].concat(),
+            le.clone(),
+            be.clone(),
         ] {
-            std::fs::write(tmp.path().join("program.yaml"), bytes).unwrap();
-            let e = load_program(tmp.path()).unwrap_err();
-            let d = &e[0];
+            std::fs::write(tmp.path().join("program.yaml"), &bytes).unwrap();
+            let p = load_program(tmp.path()).unwrap_or_else(|e| panic!("{e:?}"));
+            assert_eq!(p.def, utf8.def);
+            assert_eq!(p.source, utf8.source);
             assert_eq!(
-                d.message,
-                "the file is UTF-16 text; this file is read as UTF-8 only"
+                key_position_in_file(tmp.path(), "program.title"),
+                key_position(GOOD, "program.title")
             );
-            assert_eq!((d.line, d.column), (Some(1), Some(1)));
-            assert_eq!(d.found.as_deref(), Some(found));
-            assert_eq!(d.hint.as_deref(), Some(UTF8_HINT));
         }
+        // Cut off in the middle of a character: refused, saying what it is.
+        let mut odd = [&[0xFF, 0xFE][..], &le].concat();
+        odd.push(b'x');
+        std::fs::write(tmp.path().join("program.yaml"), odd).unwrap();
+        let e = load_program(tmp.path()).unwrap_err();
+        assert_eq!(
+            e[0].message,
+            "the file starts as UTF-16 little-endian text but has an odd number of bytes; it is cut off or not text; the file is not used"
+        );
+        assert_eq!((e[0].line, e[0].column), (Some(1), Some(1)));
+        assert_eq!(e[0].hint.as_deref(), Some(UTF8_HINT));
         // Not valid UTF-8 otherwise: the hint is about saving the file as UTF-8, not a CSV.
         std::fs::write(
             tmp.path().join("program.yaml"),

@@ -317,6 +317,10 @@ pub struct Program {
     pub info: ProgramInfo,
     /// Line of each `modules:` entry in program.yaml (for diagnostics), by index.
     pub module_lines: BTreeMap<usize, u64>,
+    /// The text of program.yaml as read, for the line and column of a key found wrong after
+    /// loading (a module's id or setting: [`load::module_key_position`]); empty when the
+    /// program was not read from text.
+    pub source: String,
     /// Line of `guidance.underweight_bmi_below` in program.yaml, when set (for the check that it
     /// agrees with the `outcomes` module's cut-off).
     pub underweight_line: Option<u64>,

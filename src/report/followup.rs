@@ -36,6 +36,10 @@ pub struct FollowupItem {
     pub dates: String,
     /// `true` when the flag was not raised for the period before.
     pub new: bool,
+    /// `true` when it was seen at follow-up only: raised by weigh-ins after the day someone
+    /// who stopped the program left it ([`ModuleResults::follow_up_flags`]).
+    #[serde(default)]
+    pub at_follow_up: bool,
 }
 
 /// A participant's part of the list (kept in their partial result, so `merge` and
@@ -134,13 +138,20 @@ pub fn previous_period(p: Period, program_start: NaiveDate) -> Option<Period> {
     })
 }
 
-fn clinical_codes(results: &ModuleResults) -> Vec<(String, String)> {
+/// The clinical flags: (code, message, seen at follow-up only).
+fn clinical_codes(results: &ModuleResults) -> Vec<(String, String, bool)> {
     results
         .outputs
         .iter()
-        .flat_map(|(_, o)| o.flags.iter())
-        .filter(|f| f.severity == FlagSeverity::Clinical)
-        .map(|f| (f.code.clone(), f.message.clone()))
+        .flat_map(|(m, o)| o.flags.iter().map(move |f| (m, f)))
+        .filter(|(_, f)| f.severity == FlagSeverity::Clinical)
+        .map(|(m, f)| {
+            (
+                f.code.clone(),
+                f.message.clone(),
+                results.at_follow_up(m, &f.code),
+            )
+        })
         .collect()
 }
 
@@ -191,7 +202,7 @@ pub fn for_participant(
         .map(|p| {
             clinical_codes(&plan.modules.run(&plan.program.info, p, plan.as_of, data))
                 .into_iter()
-                .map(|(c, _)| c)
+                .map(|(c, _, _)| c)
                 .collect()
         })
         .unwrap_or_default();
@@ -200,9 +211,10 @@ pub fn for_participant(
     let period = format!("{} to {}", plan.period.from, plan.period.to);
     let items = flags
         .into_iter()
-        .map(|(code, message)| {
+        .map(|(code, message, at_follow_up)| {
             let dates = iso_dates(&message);
             FollowupItem {
+                at_follow_up,
                 reason: reason(&code).into(),
                 details: fmt::tidy_message(&message),
                 dates: if dates.is_empty() {
@@ -298,6 +310,25 @@ fn values(r: &FollowupRecord, plan: &Scope<'_>) -> String {
     v.join("; ")
 }
 
+/// The Status column: new or continuing, and for a flag seen at follow-up only, that it was
+/// seen after the person left (SG-001 of the sample program, who stopped the program on
+/// 15 Aug 2026, was listed as "new" for a low BMI that only follow-up weigh-ins showed, with
+/// nothing to tell it from a finding of the program).
+fn status(it: &FollowupItem, r: &FollowupRecord) -> String {
+    let s = if it.new { "new" } else { "continuing" };
+    let left = r
+        .left_program
+        .as_deref()
+        .and_then(|d| NaiveDate::parse_from_str(d, "%Y-%m-%d").ok());
+    match left.filter(|_| it.at_follow_up) {
+        Some(d) => format!(
+            "{s}; seen at follow-up, after leaving the program on {}",
+            fmt::date(d)
+        ),
+        None => s.into(),
+    }
+}
+
 fn pretty_dates(s: &str) -> String {
     fmt::tidy_message(s)
 }
@@ -352,7 +383,7 @@ pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext 
             rows.push(vec![
                 r.id.clone(),
                 r.name.clone().unwrap_or_default(),
-                if it.new { "new" } else { "continuing" }.into(),
+                status(it, r),
                 it.reason.clone(),
                 vals.clone(),
                 pretty_dates(&it.dates),
@@ -396,6 +427,7 @@ pub fn csv(plan: &Scope<'_>, records: &[FollowupRecord]) -> Result<Vec<u8>, Rend
         "period_to",
         "flag",
         "status",
+        "at_follow_up",
         "reason",
         "dates",
         "weight_kg",
@@ -418,6 +450,7 @@ pub fn csv(plan: &Scope<'_>, records: &[FollowupRecord]) -> Result<Vec<u8>, Rend
                 &plan.period.to.to_string(),
                 &it.code,
                 if it.new { "new" } else { "continuing" },
+                if it.at_follow_up { "yes" } else { "no" },
                 &it.reason,
                 &it.dates,
                 &n(r.weight_kg, 1),

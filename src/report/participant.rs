@@ -6,6 +6,7 @@ use super::format as fmt;
 use super::guidance::{self, GuidanceView};
 use super::{ChartView, Kv, TableView, cautions};
 use crate::diag::{Diagnostic, Severity};
+use crate::modules::run::seen_at_follow_up;
 use crate::modules::{BuiltinViews, ModuleResults, views::BUILTIN};
 use crate::render::chart::{
     BandSeries, Bar, BarChart, Chart, HLine, LineChart, LineSeries, LineStyle, Span, SpanKind,
@@ -126,8 +127,11 @@ pub struct FlagView {
     pub severity: String,
     /// For review by a licensed clinician?
     pub clinical: bool,
-    /// The message.
+    /// The message (for a flag seen at follow-up, ending with a sentence that says so).
     pub message: String,
+    /// Seen at follow-up only: raised by weigh-ins after the day someone who stopped the
+    /// program left it, and not by their records up to that day.
+    pub follow_up: bool,
 }
 
 /// Values of another module.
@@ -326,13 +330,7 @@ pub fn build(
             .as_ref()
             .filter(|_| praise_loss)
             .map(|o| {
-                let mut days: Vec<NaiveDate> = data
-                    .weights
-                    .iter()
-                    .map(|w| w.date)
-                    .filter(|d| *d <= plan.period.to)
-                    .collect();
-                days.sort_unstable();
+                let days = crate::modules::run::weigh_in_days(data, plan.period.to);
                 milestones(
                     &o.milestones,
                     loss_goal,
@@ -349,7 +347,7 @@ pub fn build(
         guidance,
         labs: v.outcomes.as_ref().and_then(labs),
         labs_not_shown: v.outcomes.as_ref().and_then(labs_not_shown),
-        flags: flags(results),
+        flags: flags(results, p.withdrew.filter(|_| p.follow_up_weigh_ins())),
         record_notice: diags
             .iter()
             .any(crate::participant::is_copy_of_another)
@@ -516,15 +514,12 @@ fn milestones(
     rows.iter()
         .filter(|m| (loss_goal && !left) || m.reached)
         .map(|m| {
-            let follow_up =
-                m.reached && follow_up_after.is_some_and(|w| m.date_reached.is_some_and(|d| d > w));
-            let on = match m.date_reached {
-                Some(d) if follow_up => weigh_in_days
-                    .get(weigh_in_days.partition_point(|&x| x < d))
-                    .copied()
-                    .or(Some(d)),
-                d => d,
-            };
+            let seen = m
+                .date_reached
+                .filter(|_| m.reached)
+                .and_then(|d| seen_at_follow_up(follow_up_after, weigh_in_days, d));
+            let follow_up = seen.is_some();
+            let on = seen.or(m.date_reached);
             MilestoneView {
                 label: format!("{} % loss", num_text(Some(m.threshold_percent))),
                 reached: m.reached && !follow_up,
@@ -646,24 +641,39 @@ fn lab_number(test: LabTest, v: f64, unit: &str) -> String {
     )
 }
 
-/// Flags of every module: clinical first, then notices, then information.
-fn flags(results: &ModuleResults) -> Vec<FlagView> {
+/// Flags of every module: clinical first, then notices, then information. A flag seen at
+/// follow-up only (`left`: the day someone who stopped the program left it) is kept, and says
+/// so: SG-001 of the sample program, who left on 15 Aug 2026, read "For review with a licensed
+/// clinician: Current BMI is about 17.9 kg/m²…" from follow-up weigh-ins alone, as if it were
+/// a finding of the program.
+fn flags(results: &ModuleResults, left: Option<NaiveDate>) -> Vec<FlagView> {
     let mut flags: Vec<FlagView> = results
         .outputs
         .iter()
-        .flat_map(|(_, o)| o.flags.iter())
+        .flat_map(|(m, o)| o.flags.iter().map(move |f| (m, f)))
         // The energy section already says why a person who left before the period has no
         // energy figures for it; the flag is the tidy metrics' reason.
-        .filter(|f| f.code != "left_before_period")
-        .map(|f| FlagView {
-            severity: match f.severity {
-                FlagSeverity::Clinical => "clinical",
-                FlagSeverity::Notice => "notice",
-                FlagSeverity::Info => "info",
+        .filter(|(_, f)| f.code != "left_before_period")
+        .map(|(m, f)| {
+            let follow_up = results.at_follow_up(m, &f.code);
+            let mut message = fmt::tidy_message(&f.message);
+            if let Some(w) = left.filter(|_| follow_up) {
+                message.push_str(&format!(
+                    " This was seen at follow-up, after you left the program on {}.",
+                    fmt::date(w)
+                ));
             }
-            .into(),
-            clinical: f.severity == FlagSeverity::Clinical,
-            message: fmt::tidy_message(&f.message),
+            FlagView {
+                severity: match f.severity {
+                    FlagSeverity::Clinical => "clinical",
+                    FlagSeverity::Notice => "notice",
+                    FlagSeverity::Info => "info",
+                }
+                .into(),
+                clinical: f.severity == FlagSeverity::Clinical,
+                message,
+                follow_up,
+            }
         })
         .collect();
     flags.sort_by_key(|f| match f.severity.as_str() {

@@ -789,7 +789,10 @@ fn process_participant(
         let summary = summary_row(plan, &data, &results);
         rec.summary = Some(SummaryRecord::from_summary(&summary));
         rec.tidy = Some(TidyRecord::from_tidy(tidy::participant(
-            &data, &results, &summary,
+            &data,
+            &results,
+            &summary,
+            plan.period.to,
         )));
         // Clinician follow-up list: this participant's flags, when the program turns it on.
         rec.followup = report::followup::for_participant(&plan.report_scope(), &data, &results);

@@ -371,6 +371,8 @@ pub struct TidyRecord {
     scalars: Vec<(String, ScalarRecord)>,
     texts: Vec<(String, cohortpress_metric_api::TextValue)>,
     flags: Vec<(String, cohortpress_metric_api::Flag)>,
+    #[serde(default)]
+    flags_at_follow_up: Vec<(String, String)>,
     failures: Vec<(String, String)>,
     weekly_rows: Vec<[String; 8]>,
     #[serde(default)]
@@ -407,6 +409,7 @@ impl TidyRecord {
                 .collect(),
             texts: t.texts,
             flags: t.flags,
+            flags_at_follow_up: t.flags_at_follow_up,
             failures: t.failures,
             weekly_rows: t.weekly_rows,
             table_rows: t.table_rows,
@@ -442,6 +445,7 @@ impl TidyRecord {
                 .collect(),
             texts: self.texts,
             flags: self.flags,
+            flags_at_follow_up: self.flags_at_follow_up,
             failures: self.failures,
             weekly_rows: self.weekly_rows,
             table_rows: self.table_rows,

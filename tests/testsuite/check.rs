@@ -246,7 +246,7 @@ fn the_underweight_cut_off_is_one_setting() {
     )
     .unwrap();
     let want = format!(
-        "program.yaml:{}: `guidance.underweight_bmi_below` (19) differs from the `outcomes` module's `underweight_bmi_below` (18.5)",
+        "program.yaml:{}:26: `guidance.underweight_bmi_below` (19) differs from the `outcomes` module's `underweight_bmi_below` (18.5)",
         lines + 2
     );
     let check = t.run(&["check", ".", "--as-of", AS_OF]);

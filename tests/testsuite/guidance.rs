@@ -440,6 +440,7 @@ fn context_md_documents_exactly_the_followup_fields() {
             details: "Logged intake averaged about 1,476 kcal a day".into(),
             dates: "2026-09-01 to 2026-09-30".into(),
             new: true,
+            at_follow_up: false,
         }],
     };
     let ctx = context(&s.plan.report_scope(), std::slice::from_ref(&record));

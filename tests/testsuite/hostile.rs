@@ -834,6 +834,7 @@ mod readers {
                 &text,
                 "P-1",
                 &Default::default(),
+                chrono::NaiveDate::MAX,
                 &ctx,
                 &mut d,
             );

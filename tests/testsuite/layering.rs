@@ -19,6 +19,7 @@ const LAYERS: &[(&str, &[&str])] = &[
         &[
             "yaml",
             "diag",
+            "encoding",
             "limits",
             "activities",
             "csv_out",

@@ -1607,6 +1607,165 @@ fn a_follow_up_weigh_in_after_stopping_the_program_gives_a_weight_at_the_time_po
     );
 }
 
+/// Someone who stopped the program and whose follow-up weigh-ins alone raise clinical flags
+/// (SG-001 left on 15 Aug 2026 and fell to 47.5 kg, BMI about 18, by 29 Sep), and someone who
+/// left in the period with follow-up weigh-ins at its end (SG-002, left 8 Sep, weighed in on
+/// 28–30 Sep). The flags are kept, and the report, the clinician follow-up list and the tidy
+/// metrics say they were seen at follow-up; a milestone first reached after leaving reads as
+/// seen at follow-up in `tables.csv` too, on the follow-up weigh-in's day; the energy note says
+/// the logs ended on the day they left. Before: the flags read like findings of the program
+/// ("new", nothing else), `tables.csv` had "reached yes, 2026-08-19" (a day in the gap before
+/// the follow-up visit) and SG-002's report said "The weight trend does not cover enough of the
+/// last 28 days" beside a chart whose follow-up weigh-ins covered them.
+#[test]
+fn flags_and_milestones_of_follow_up_weigh_ins_are_seen_at_follow_up_everywhere() {
+    let prog = ProgramTest::sample();
+    let yaml = prog.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        text.replace("formats: [html, pdf]", "formats: [html]")
+            + "\nfollowup:\n  recipient: \"Program nurse\"\n",
+    )
+    .unwrap();
+    let folder = |id: &str| prog.dir.join("participants").join(id);
+    for (id, left, rows) in [
+        (
+            "SG-001",
+            "2026-08-15",
+            "2026-09-05,58.0,kg,clinic\n2026-09-15,54.0,kg,clinic\n2026-09-25,50.0,kg,clinic\n2026-09-29,47.5,kg,clinic\n",
+        ),
+        (
+            "SG-002",
+            "2026-09-08",
+            "2026-09-28,08:00,184.0,lb,clinic\n2026-09-29,08:00,183.6,lb,clinic\n2026-09-30,08:00,183.0,lb,clinic\n",
+        ),
+    ] {
+        let profile = folder(id).join("profile.yaml");
+        let mut p = std::fs::read_to_string(&profile).unwrap();
+        assert!(!p.contains("withdrew"), "{p}");
+        p.push_str(&format!(
+            "withdrew: {left}\nwithdrawal_reason: stopped_program\n"
+        ));
+        std::fs::write(&profile, p).unwrap();
+        // The weigh-ins up to the day left, then the follow-up ones.
+        let weights = folder(id).join("weights.csv");
+        let w = std::fs::read_to_string(&weights).unwrap();
+        let mut kept: String = w
+            .lines()
+            .filter(|l| l.starts_with("date") || &l[..10] <= left)
+            .map(|l| format!("{l}\n"))
+            .collect();
+        kept.push_str(rows);
+        std::fs::write(&weights, kept).unwrap();
+    }
+    let outcome = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    // The sample has one planted folder without a profile: participant errors, exit 4.
+    assert_eq!(outcome.code, 4, "{}", outcome.stderr);
+    let run = SampleRun { prog, outcome };
+
+    // The report keeps the flags and says they were seen at follow-up.
+    let html = run.read("participants/SG-001.html");
+    let seen = " This was seen at follow-up, after you left the program on 15 Aug 2026.";
+    assert!(
+        html.contains(&format!(
+            "<li class=\"clinical\">For review with a licensed clinician: Current BMI is about 17.9 kg/m², below 18.5, the lower limit of the normal range (WHO). Further weight loss should be reviewed with a licensed clinician.{seen}</li>"
+        )),
+        "{html}"
+    );
+    assert_eq!(html.matches(seen).count(), 2, "fast loss and low BMI");
+    // SG-002's energy note says why, not that the trend falls short.
+    let html = run.read("participants/SG-002.html");
+    assert!(!html.contains("does not cover enough"), "{html}");
+    assert!(html.contains(
+        "<li class=\"info\">Food and activity logs end on 8 Sep 2026, the day of leaving the program, and the weight after that day is from follow-up weigh-ins, which are not set against logs that had ended; so the intake implied by the weight trend, the forecast and the options are not computed for the end of this period.</li>"
+    ), "{html}");
+
+    // The clinician follow-up list: the same flags, marked; a flag of the program's records
+    // (SG-050) is not.
+    let mut r = csv::Reader::from_path(run.out().join("followup/followup.csv")).unwrap();
+    let header = r.headers().unwrap().clone();
+    let rows: Vec<BTreeMap<String, String>> = r
+        .records()
+        .map(|rec| {
+            header
+                .iter()
+                .zip(rec.unwrap().iter())
+                .map(|(h, v)| (h.to_string(), v.to_string()))
+                .collect()
+        })
+        .collect();
+    let listed = |id: &str| {
+        rows.iter()
+            .filter(|r| r["participant_id"] == id)
+            .map(|r| {
+                [
+                    r["flag"].clone(),
+                    r["status"].clone(),
+                    r["at_follow_up"].clone(),
+                ]
+            })
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(
+        listed("SG-001"),
+        [
+            ["fast_loss", "new", "yes"].map(String::from),
+            ["low_bmi", "new", "yes"].map(String::from)
+        ]
+    );
+    assert!(listed("SG-050").iter().all(|r| r[2] == "no") && !listed("SG-050").is_empty());
+    let list = run.read("followup/followup.html");
+    assert_eq!(
+        list.matches("new; seen at follow-up, after leaving the program on 15 Aug 2026")
+            .count(),
+        2,
+        "{list}"
+    );
+
+    // The tidy metrics: the clinical flags, and of them those seen at follow-up only.
+    let tidy = tidy_rows(&run);
+    let flags = |id: &str| {
+        let r = tidy.iter().find(|r| r["participant_id"] == id).unwrap();
+        [
+            r["clinical_flags"].clone(),
+            r["clinical_flags_at_follow_up"].clone(),
+        ]
+    };
+    assert_eq!(flags("SG-001"), ["fast_loss;low_bmi", "fast_loss;low_bmi"]);
+    assert_eq!(flags("SG-050")[1], "");
+    assert!(!flags("SG-050")[0].is_empty());
+    let json: serde_json::Value =
+        serde_json::from_str(&run.read("metrics/participants.json")).unwrap();
+    let sg001 = json
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["participant_id"] == "SG-001")
+        .unwrap();
+    assert_eq!(
+        sg001["flags_at_follow_up"],
+        serde_json::json!([["outcomes", "fast_loss"], ["outcomes", "low_bmi"]])
+    );
+
+    // tables.csv: the 10 % milestone, first reached by the trend on 19 Aug in the gap before
+    // the follow-up visit of 5 Sep, reads as seen at follow-up on that visit's day; the 7 %
+    // reached in the program keeps its day.
+    let tables = run.read("metrics/tables.csv");
+    let milestone = |row: u32| {
+        ["reached", "date_reached"].map(|c| {
+            let prefix = format!("SG-001,outcomes,milestones,{row},{c},,");
+            tables
+                .lines()
+                .find_map(|l| l.strip_prefix(prefix.as_str()))
+                .unwrap_or_else(|| panic!("{prefix}"))
+                .to_string()
+        })
+    };
+    assert_eq!(milestone(3), ["yes", "2026-07-29"]);
+    assert_eq!(milestone(4), ["seen_at_follow_up", "2026-09-05"]);
+}
+
 /// The group report's whole-program figures, recomputed independently of the group module from
 /// the participant-level tidy metrics (`metrics/participants.csv`): the intention-to-treat
 /// denominator is everyone with a baseline weight; someone whose last weigh-in is 28 days or more

@@ -2630,3 +2630,55 @@ fn an_unsettled_one_colon_duration_names_the_header_that_settles_it() {
     let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
     assert_eq!(minutes, [45.0, 90.0]);
 }
+
+/// Start and end as times of day alone under headers that say UTC (`Start Time (UTC)`,
+/// `End Time (UTC)`, beside a `Date` column): each is that time on the row's date in UTC,
+/// converted to `input.time_zone` as a weigh-in's UTC time is, and the row counts on the
+/// start's local day. They were read as local times: in America/New_York (UTC−4 in September;
+/// IANA tzdata) a walk from 02:00 to 02:40 UTC on Monday 14 Sep 2026 counted on the 14th (the
+/// next week) rather than on the evening of Sunday the 13th. Without a zone they stay on their
+/// UTC day, as a weigh-in's do. A start and end beside a date with no UTC in their headers
+/// are local times, as before.
+#[test]
+fn activity_times_of_day_under_a_utc_header_are_converted_to_the_programs_zone() {
+    let utc = "Date,Start Time (UTC),End Time (UTC),Activity\n\
+               2026-09-14,02:00,02:40,Walking\n\
+               2026-09-15,12:00,12:30,Walking\n\
+               2026-09-16,03:50,03:40,Walking\n";
+    let read = |text: &str, zone: Option<&str>| {
+        let opts = CsvOptions {
+            time_zone: zone.and_then(LocalZone::parse),
+            ..Default::default()
+        };
+        let mut diags = Vec::new();
+        let cx = ctx("activity.csv");
+        let a = parse_activity(text, &opts, &cx, &window(), &mut diags).expect("usable");
+        let got: Vec<(NaiveDate, f64)> = a.iter().map(|x| (x.date, x.minutes)).collect();
+        let warnings: Vec<(Option<u64>, Option<u64>, String)> = diags
+            .iter()
+            .filter(|x| x.severity == Severity::Warning)
+            .map(|x| (x.line, x.column, x.message.clone()))
+            .collect();
+        let notes: Vec<String> = cx.take_notes().into_iter().map(|n| n.message).collect();
+        (got, warnings, notes)
+    };
+    let ends_before = "the activity ends before it starts; the row is dropped".to_string();
+    let (got, warnings, notes) = read(utc, Some("America/New_York"));
+    assert_eq!(got, [(d(2026, 9, 13), 40.0), (d(2026, 9, 15), 30.0)]);
+    // An end before its start on the same UTC day is still dropped, at the end's cell.
+    assert_eq!(warnings, [(Some(4), Some(3), ends_before.clone())]);
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.contains("UTC times converted to America/New_York")),
+        "{notes:#?}"
+    );
+    // Without a zone: on the UTC day.
+    let (got, ..) = read(utc, None);
+    assert_eq!(got, [(d(2026, 9, 14), 40.0), (d(2026, 9, 15), 30.0)]);
+    // No UTC in the headers: local times, on the row's date, as before.
+    let local = utc.replace(" (UTC)", "");
+    let (got, warnings, _) = read(&local, Some("America/New_York"));
+    assert_eq!(got, [(d(2026, 9, 14), 40.0), (d(2026, 9, 15), 30.0)]);
+    assert_eq!(warnings, [(Some(4), Some(3), ends_before)]);
+}

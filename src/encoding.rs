@@ -1,4 +1,6 @@
-//! Files saved in a legacy 8-bit encoding: Windows-1252 (a superset of Latin-1, ISO 8859-1, in
+//! How input files are decoded besides UTF-8: UTF-16 (with a byte-order mark, or without one
+//! when its bytes show it), for every input file alike (participants' files and program.yaml);
+//! and, for participants' files, a legacy 8-bit encoding: Windows-1252 (a superset of Latin-1, ISO 8859-1, in
 //! its printable range), what spreadsheet and text tools in Western European locales write by
 //! default. A file that is not UTF-8 is read this way only when that is unambiguous.
 
