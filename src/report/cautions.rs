@@ -6,9 +6,10 @@ pub fn participant(t: &super::guidance::Thresholds) -> Vec<String> {
         "This report is information about your progress in the program, not medical advice. It does not diagnose or treat any condition.".into(),
         "Figures are estimates from your own records and from published equations and models; real bodies vary, and every figure has some uncertainty.".into(),
         format!(
-            "Very low intakes (below about {} kcal a day for women or {} for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about 1 kg (2 lb) a week for several weeks, a BMI under {} (or under {} while still losing; {} from age 70), and lab values in the prediabetes or diabetes range should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy.",
+            "Very low intakes (below about {} kcal a day for women or {} for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about {} a week for several weeks, a BMI under {} (or under {} while still losing; {} from age 70), and lab values in the prediabetes or diabetes range should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy.",
             super::format::int(t.floor_female),
             super::format::int(t.floor_male),
+            kg_and_lb(t.fast_change_kg_per_week),
             bmi(t.underweight_bmi_below),
             bmi(t.low_bmi_losing_below),
             bmi(t.low_bmi_losing_below.max(t.low_bmi_losing_below_70_plus))
@@ -22,6 +23,26 @@ pub fn participant(t: &super::guidance::Thresholds) -> Vec<String> {
 fn bmi(v: f64) -> String {
     let tenths = (v * 10.0).round();
     super::format::fixed(tenths / 10.0, usize::from(tenths % 10.0 != 0.0))
+}
+
+/// A weekly rate in both units, as a reader writes it: `1 kg (2 lb)`, `0.75 kg (2 lb)`,
+/// `1.5 kg (3 lb)`. The printed "about 1 kg (2 lb)" stood beside a program whose `outcomes`
+/// module flags fast change from 0.75 kg a week.
+fn kg_and_lb(kg: f64) -> String {
+    let hundredths = (kg * 100.0).round();
+    let decimals = if hundredths % 10.0 != 0.0 {
+        2
+    } else {
+        usize::from(hundredths % 100.0 != 0.0)
+    };
+    let lb = (kg / cohortpress_metric_api::units::KG_PER_LB)
+        .round()
+        .max(1.0);
+    format!(
+        "{} kg ({} lb)",
+        super::format::fixed(hundredths / 100.0, decimals),
+        super::format::int(lb)
+    )
 }
 
 /// Cautions on a group report.
@@ -41,6 +62,30 @@ pub fn group(min_cell: u32) -> Vec<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The fast-change rate the cautions name is the program's own (`outcomes`'
+    /// `fast_loss_kg_per_week`), not always "about 1 kg (2 lb)".
+    #[test]
+    fn the_fast_change_rate_is_the_programs() {
+        let mut t = super::super::guidance::Thresholds::default();
+        let text = participant(&t)[2].clone();
+        assert!(
+            text.contains("more than about 1 kg (2 lb) a week"),
+            "{text}"
+        );
+        t.fast_change_kg_per_week = 0.75;
+        let text = participant(&t)[2].clone();
+        assert!(
+            text.contains("more than about 0.75 kg (2 lb) a week"),
+            "{text}"
+        );
+        t.fast_change_kg_per_week = 1.5;
+        let text = participant(&t)[2].clone();
+        assert!(
+            text.contains("more than about 1.5 kg (3 lb) a week"),
+            "{text}"
+        );
+    }
 
     /// A program's `low_bmi_losing_below: 19.5` printed as "under 20 while still losing".
     #[test]

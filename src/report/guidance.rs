@@ -129,6 +129,10 @@ pub struct Thresholds {
     /// The same for men: `intake_floor_male` (default 1,500; NIH/NHLBI 1998 give 1,200–1,600
     /// kcal/d for men — from memory; common practice).
     pub floor_male: f64,
+    /// Weight change a week, sustained over the `outcomes` module's span, from which its
+    /// `fast_loss` and `fast_gain` flags go to a clinician: its `fast_loss_kg_per_week`
+    /// (default 1; NIH/NHLBI 1998: 0.5–1 kg a week — from memory); the cautions name it.
+    pub fast_change_kg_per_week: f64,
     /// Fastest loss an option may lead to, kg/week: the `energy` module's
     /// `max_safe_loss_kg_per_week` (default 1; NIH/NHLBI 1998: 0.5–1 kg a week — from memory).
     pub max_loss_kg_per_week: f64,
@@ -158,6 +162,7 @@ impl Default for Thresholds {
             low_bmi_losing_below_70_plus: cohortpress_metric_outcomes::LOW_BMI_LOSING_BELOW_70_PLUS,
             floor_female: 1200.0,
             floor_male: 1500.0,
+            fast_change_kg_per_week: 1.0,
             max_loss_kg_per_week: 1.0,
             max_loss_percent_per_week: 1.0,
             target_loss_kg_per_week: 0.5,
@@ -206,6 +211,7 @@ impl Thresholds {
             ),
             floor_female: e("intake_floor_female", d.floor_female),
             floor_male: e("intake_floor_male", d.floor_male),
+            fast_change_kg_per_week: outcomes("fast_loss_kg_per_week", d.fast_change_kg_per_week),
             max_loss_kg_per_week: e("max_safe_loss_kg_per_week", d.max_loss_kg_per_week),
             max_loss_percent_per_week: g
                 .max_loss_percent_per_week
