@@ -2060,11 +2060,8 @@ mod activity_unread_tests {
         assert!(has_rate(&views(&t)));
     }
 
-    /// The summary showed "Total energy use per day 3,002" (by energy balance over the last
-    /// four weeks) above weeks of about 2,850 (equation × activity level), with one
-    /// explanation saying both came from the equation. Each now says what it is.
-    #[test]
-    fn the_two_energy_use_figures_say_what_they_are() {
+    /// The energy module's figures for the API's fixture participant (trend, then energy).
+    fn fixture_energy() -> EnergyResults {
         use cohortpress_metric_api::view::ModuleView;
         use cohortpress_metric_api::{MetricModule, fixture};
         let data = fixture::participant();
@@ -2074,7 +2071,15 @@ mod activity_unread_tests {
         let out = m
             .compute(&fixture::context(&m.spec(), &[("trend", &trend)]), &data)
             .unwrap();
-        let mut e = EnergyResults::from_output(&out).unwrap();
+        EnergyResults::from_output(&out).unwrap()
+    }
+
+    /// The summary showed "Total energy use per day 3,002" (by energy balance over the last
+    /// four weeks) above weeks of about 2,850 (equation × activity level), with one
+    /// explanation saying both came from the equation. Each now says what it is.
+    #[test]
+    fn the_two_energy_use_figures_say_what_they_are() {
+        let mut e = fixture_energy();
         assert!(e.implied_intake_kcal_per_day.value.is_some());
         let label = |v: &EnergyView| {
             v.items
@@ -2155,16 +2160,7 @@ mod activity_unread_tests {
     /// show and no line.
     #[test]
     fn the_energy_lines_add_up_to_the_total_as_printed() {
-        use cohortpress_metric_api::view::ModuleView;
-        use cohortpress_metric_api::{MetricModule, fixture};
-        let data = fixture::participant();
-        let t = cohortpress_metric_trend::TrendModule;
-        let trend = t.compute(&fixture::context(&t.spec(), &[]), &data).unwrap();
-        let m = cohortpress_metric_energy::EnergyModule;
-        let out = m
-            .compute(&fixture::context(&m.spec(), &[("trend", &trend)]), &data)
-            .unwrap();
-        let mut e = EnergyResults::from_output(&out).unwrap();
+        let mut e = fixture_energy();
         e.rmr_kcal_per_day.value = Some(1240.6);
         e.activity_net_kcal_per_day.value = Some(48.7);
         e.tdee_kcal_per_day.value = Some(2019.8);
