@@ -700,13 +700,21 @@ fn to_diagnostic(e: &serde_yaml::Error, file: &str) -> Diagnostic {
             if let Some(exp) = tail.strip_prefix(", expected ") {
                 d = d.expected(exp.to_string());
             }
-            d = d.hint("use one of the listed values, spelled exactly");
+            d = d.hint(if tail.contains("`unrecorded`") {
+                // profile.yaml's `sex:` (a record that says `nonbinary`, `x`, `diverse`, …).
+                SEX_HINT
+            } else {
+                "use one of the listed values, spelled exactly"
+            });
         }
     } else if let Some(rest) = msg.strip_prefix("missing field `") {
         let key = rest.split('`').next().unwrap_or_default();
-        d = d
-            .expected(format!("the key `{key}:`"))
-            .hint(format!("add `{key}:` with a value"));
+        d = d.expected(format!("the key `{key}:`"));
+        d = if key == "sex" {
+            d.hint(SEX_HINT)
+        } else {
+            d.hint(format!("add `{key}:` with a value"))
+        };
     } else if let Some(rest) = msg.strip_prefix("invalid type: ") {
         match rest.split_once(", expected ") {
             // "expected struct ModuleDef" names a type of ours, not what to write.
@@ -824,6 +832,10 @@ fn split_path(s: &str) -> (Option<String>, String) {
     }
     (None, s.to_string())
 }
+
+/// The hint for profile.yaml's `sex:` when it is missing or holds another value: the
+/// energy equations know two forms, and `unrecorded` takes both with the added uncertainty.
+const SEX_HINT: &str = "write `sex: female` or `sex: male` as the record gives it, or `sex: unrecorded` when it gives neither (the energy equations then take the mean of both forms, with wider ranges)";
 
 #[cfg(test)]
 mod tests {

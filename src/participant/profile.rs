@@ -874,6 +874,15 @@ flags: [glucose-lowering-medication]
         assert_eq!(d.len(), 2, "{d:?}");
         assert_eq!(d[0].message, "missing field `sex`");
         assert_eq!(d[0].participant.as_deref(), Some("LW-0147"));
+        // The hint names the value for a record that gives neither sex.
+        assert!(
+            d[0].hint
+                .as_deref()
+                .unwrap()
+                .contains("or `sex: unrecorded` when it gives neither"),
+            "{}",
+            d[0]
+        );
         assert_eq!(
             (d[1].line, d[1].found.as_deref()),
             (Some(5), Some("`01/03/2027`"))
@@ -1020,6 +1029,21 @@ flags: [glucose-lowering-medication]
         assert!(p.is_none());
         assert!(
             d[0].expected.as_deref().unwrap().contains("female"),
+            "{}",
+            d[0]
+        );
+        // A record's third value (`x`, `nonbinary`, `diverse`) is pointed to `unrecorded`.
+        let (p, d) = parse(&GOOD.replace("sex: female", "sex: nonbinary"));
+        assert!(p.is_none());
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some("one of `female`, `male`, `unrecorded`")
+        );
+        assert!(
+            d[0].hint
+                .as_deref()
+                .unwrap()
+                .contains("or `sex: unrecorded` when it gives neither"),
             "{}",
             d[0]
         );
