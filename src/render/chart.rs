@@ -545,7 +545,15 @@ fn fit_label(s: &str, max_px: f32, size: f64) -> String {
     font::ellipsize(Face::Regular, s, size as f32 / SVG_FONT_DIVISOR, max_px)
 }
 
-/// Value range padded by 6 % on each side; a flat range is widened so the axis has a scale.
+/// Smallest span of a line chart's value axis, as a share of the largest value's size (program
+/// choice): a steady person's weekly energy use varies by a few kcal around 2,800, and an axis
+/// drawn over just that range ticked "2,831.5, 2,832.0, …", precision the estimate does not
+/// have, and made a flat line look like swings.
+const MIN_SPAN_OF_MAGNITUDE: f64 = 0.02;
+
+/// Value range padded by 6 % on each side; a flat range is widened so the axis has a scale, and
+/// a range narrower than [`MIN_SPAN_OF_MAGNITUDE`] of its values' size is widened to it, about
+/// its middle.
 fn padded(lo: f64, hi: f64) -> (f64, f64) {
     if !(lo.is_finite() && hi.is_finite()) {
         return (0.0, 1.0);
@@ -554,6 +562,13 @@ fn padded(lo: f64, hi: f64) -> (f64, f64) {
         let d = if lo.abs() > 1.0 { lo.abs() * 0.05 } else { 1.0 };
         return (lo - d, hi + d);
     }
+    let min_span = MIN_SPAN_OF_MAGNITUDE * lo.abs().max(hi.abs());
+    let (lo, hi) = if hi - lo < min_span {
+        let mid = (lo + hi) / 2.0;
+        (mid - min_span / 2.0, mid + min_span / 2.0)
+    } else {
+        (lo, hi)
+    };
     let pad = (hi - lo) * 0.06;
     (lo - pad, hi + pad)
 }
@@ -1021,6 +1036,26 @@ fn draw_bar_chart<DB: DrawingBackend>(
 
 #[cfg(test)]
 pub(crate) mod tests {
+    /// A steady person's energy chart (weekly energy use 2,830–2,833 kcal/day) was ticked in
+    /// half kilocalories; its axis now spans at least 2 % of the values' size. Wider ranges, and
+    /// small values around zero (a group's mean % change), keep their own span.
+    #[test]
+    fn a_narrow_value_range_is_widened_to_a_share_of_its_size() {
+        let (a, b) = super::padded(2830.0, 2833.0);
+        assert!((b - a - 2833.0 * 0.02 * 1.12).abs() < 1e-9, "{a} {b}");
+        assert!(((a + b) / 2.0 - 2831.5).abs() < 1e-9);
+        let (a, b) = super::padded(70.0, 80.0);
+        assert!(
+            (a - 69.4).abs() < 1e-9 && (b - 80.6).abs() < 1e-9,
+            "{a} {b}"
+        );
+        let (a, b) = super::padded(-0.4, -0.2);
+        assert!(
+            (a + 0.412).abs() < 1e-9 && (b + 0.188).abs() < 1e-9,
+            "{a} {b}"
+        );
+    }
+
     use super::*;
 
     fn d(m: u32, day: u32) -> NaiveDate {
