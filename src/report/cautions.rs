@@ -55,13 +55,26 @@ pub fn group(min_cell: u32) -> Vec<String> {
             min_cell
         ),
         "Weight outcomes are given under intention-to-treat (everyone who started, with the starting weight carried forward for anyone without a recent weigh-in) and for completers only; completer figures alone overstate what a program achieves.".into(),
-        "Individual clinical flags (very low intake, fast loss, low BMI, lab values in the diabetes range) are routed to participants' own reports and, where the program names a recipient, to a private follow-up list for the program's clinician; only the number of people with one appears here. Local rules and licensed practice come first.".into(),
+        "Individual clinical flags (very low intake, fast loss, low BMI, lab values in the diabetes range) are routed to participants' own reports and, where the program names a recipient, to a private follow-up list for the program's clinician; only the number of people with one appears here (it includes flags first seen at follow-up weigh-ins of people who stopped the program). Local rules and licensed practice come first.".into(),
     ]
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The group report's count of people with a clinical flag includes flags seen only at
+    /// follow-up weigh-ins after someone stopped the program (kept on purpose: they matter to a
+    /// clinician); the cautions said nothing of it. The words are the same in every report, so
+    /// they say nothing about whether such a person exists.
+    #[test]
+    fn the_group_cautions_say_the_flag_count_includes_follow_up() {
+        let text = group(11)[3].clone();
+        assert!(
+            text.contains("it includes flags first seen at follow-up weigh-ins of people who stopped the program"),
+            "{text}"
+        );
+    }
 
     /// The fast-change rate the cautions name is the program's own (`outcomes`'
     /// `fast_loss_kg_per_week`), not always "about 1 kg (2 lb)".
