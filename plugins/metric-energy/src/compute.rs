@@ -768,9 +768,12 @@ fn start<'a>(
     let (bf0, bf_source) = match data.profile.body_fat_percent {
         Some(bf) => (bf, BodyFatSource::Measured),
         None => (
-            // Not recorded: the mean of the two forms (2.7 points of body fat apart at BMI 30);
-            // the model's energy partition depends on it only weakly (Forbes 2000), so its
-            // spread is not carried further.
+            // Not recorded: the mean of the two forms, which lie about 11 points of body fat
+            // apart at BMI 30 (Jackson et al. 2002's coefficients). The ±5.5 points move the
+            // energy density of weight change (lean share C/(C+F); Forbes 2000, Ann N Y Acad
+            // Sci 904:359 — from memory) by about ±2.5 % at 90 kg: some 15 kcal/d at a loss
+            // of 0.5 kg a week, small beside resting energy's spread, so only the latter is
+            // carried into the intervals (program choice).
             either_sex(sex, |sex| {
                 jackson_2002_body_fat(
                     sex,
