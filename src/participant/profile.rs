@@ -875,14 +875,7 @@ flags: [glucose-lowering-medication]
         assert_eq!(d[0].message, "missing field `sex`");
         assert_eq!(d[0].participant.as_deref(), Some("LW-0147"));
         // The hint names the value for a record that gives neither sex.
-        assert!(
-            d[0].hint
-                .as_deref()
-                .unwrap()
-                .contains("or `sex: unrecorded` when it gives neither"),
-            "{}",
-            d[0]
-        );
+        assert_points_to_unrecorded(&d[0]);
         assert_eq!(
             (d[1].line, d[1].found.as_deref()),
             (Some(5), Some("`01/03/2027`"))
@@ -1017,6 +1010,18 @@ flags: [glucose-lowering-medication]
         assert_eq!(p.unwrap().age_years, 44.0);
     }
 
+    /// A missing or unknown `sex` is pointed to `sex: unrecorded` for a record that gives
+    /// neither value.
+    fn assert_points_to_unrecorded(d: &Diagnostic) {
+        assert!(
+            d.hint
+                .as_deref()
+                .unwrap()
+                .contains("or `sex: unrecorded` when it gives neither"),
+            "{d}"
+        );
+    }
+
     #[test]
     fn other_profile_errors() {
         let (p, d) = parse(&GOOD.replace("id: LW-0147", "id: LW-0148"));
@@ -1039,14 +1044,7 @@ flags: [glucose-lowering-medication]
             d[0].expected.as_deref(),
             Some("one of `female`, `male`, `unrecorded`")
         );
-        assert!(
-            d[0].hint
-                .as_deref()
-                .unwrap()
-                .contains("or `sex: unrecorded` when it gives neither"),
-            "{}",
-            d[0]
-        );
+        assert_points_to_unrecorded(&d[0]);
         let (p, d) = parse(&GOOD.replace("enrolled: 2027-03-01", "enrolled: 2027-02-30"));
         assert!(p.is_none());
         assert_eq!(d[0].line, Some(6));
