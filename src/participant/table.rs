@@ -1062,6 +1062,7 @@ fn read_records(
     while written.len() > 1 && written.last().is_some_and(String::is_empty) {
         written.pop();
     }
+    let header_ends_in_delimiter = written.len() < header.len();
     let names: Vec<String> = written.iter().map(|h| h.to_lowercase()).collect();
     let user_map = opts.columns.get(spec.kind());
     let mut columns = BTreeMap::new();
@@ -1525,6 +1526,23 @@ fn read_records(
         ..Table::empty(delimiter, sniffed)
     };
     let mut records = 0usize;
+    // Rows of one field too many whose last is empty, read as ending in a delimiter, whose
+    // extra field may instead come from a delimiter inside a text value (`walk, brisk` in a
+    // file whose last column, `Notes`, is empty): the row, its line and that value's field.
+    let mut split_suspects: Vec<(csv::StringRecord, u64, usize)> = Vec::new();
+    // Rows of the header's width or fewer, and rows read as ending in a delimiter otherwise.
+    let (mut plain_rows, mut other_trailing) = (0usize, 0usize);
+    // The last field a row's read columns reach: a value split by a delimiter after it (an
+    // unread `Notes` last) shifts nothing that is read.
+    let last_read = table
+        .columns
+        .values()
+        .copied()
+        .filter(|&i| i < names.len())
+        .max()
+        .unwrap_or(0);
+    // Rows whose unread last text value holds the delimiter, read without it.
+    let mut split_unread = 0usize;
     loop {
         match reader.read_record(&mut rec) {
             Ok(true) => {
@@ -1652,11 +1670,26 @@ fn read_records(
             continue;
         }
         let width = names.len();
+        // A text value split by a delimiter inside it, into the one field too many.
+        let split = (rec.len() == width + 1)
+            .then(|| split_text_at(&rec, opts))
+            .flatten();
         let fits = if rec.len() > width {
             // A delimiter at the end of each row (`2026-04-01,72,kg,`) gives empty extra fields.
             let empty = rec.iter().skip(width).all(|f| f.trim().is_empty());
             trailing_empty += usize::from(empty);
-            empty
+            match split {
+                Some(i) if empty && i <= last_read => split_suspects.push((rec.clone(), line, i)),
+                _ if empty => other_trailing += 1,
+                _ => {}
+            }
+            if !empty && split.is_some_and(|i| i > last_read) {
+                // The split value is after every column read (a note): the row reads as is.
+                split_unread += 1;
+                true
+            } else {
+                empty
+            }
         } else if rec.len() < width {
             let short = last_required.is_none_or(|r| r < rec.len());
             short_rows += usize::from(short);
@@ -1664,6 +1697,7 @@ fn read_records(
         } else {
             true
         };
+        plain_rows += usize::from(rec.len() <= width && fits);
         // A summary written across the row's fields as one (`Average: 88.15 kg`, `Total 510`
         // below the rows): no measurement, and no row of the wrong shape either.
         if !fits
@@ -1673,6 +1707,18 @@ fn read_records(
             let mut rows = table.summary_rows.borrow_mut();
             rows.0 += 1;
             rows.1.get_or_insert((line, shorten(f, 40)));
+            continue;
+        }
+        if !fits && let Some(i) = split {
+            row_diags.push(split_text_warning(
+                ctx,
+                &rec,
+                i,
+                line,
+                width,
+                written.get(i).map(String::as_str),
+                delimiter,
+            ));
             continue;
         }
         if !fits {
@@ -1734,6 +1780,29 @@ fn read_records(
             table.bounds.push((start, table.text.len()));
         }
         table.rows.push(Row { line, first });
+    }
+    // A row of one field too many, the last empty, with a text value split in two before a
+    // column read (`2026-03-02,walk, brisk,30,` under `Date,Activity,Minutes,Notes`) was read
+    // as ending in a delimiter, shifted: `brisk` as the minutes. Where the file's rows do not
+    // end in a delimiter (more rows of the header's width than rows that do, and a header
+    // that does not), it is the field too many it looks like, and dropped with its place.
+    if !split_suspects.is_empty() && !header_ends_in_delimiter && plain_rows > other_trailing {
+        trailing_empty -= split_suspects.len();
+        let lines: std::collections::BTreeSet<u64> =
+            split_suspects.iter().map(|(_, l, _)| *l).collect();
+        table.rows.retain(|r| !lines.contains(&r.line));
+        for (rec, line, i) in &split_suspects {
+            row_diags.push(split_text_warning(
+                ctx,
+                rec,
+                *i,
+                *line,
+                names.len(),
+                written.get(*i).map(String::as_str),
+                delimiter,
+            ));
+        }
+        row_diags.sort_by_key(|d| d.line);
     }
     let has_unit =
         |s: &str| s.chars().any(|c| c.is_ascii_digit()) && s.chars().any(char::is_alphabetic);
@@ -1860,6 +1929,13 @@ fn read_records(
         ctx.note(format!(
             "{} with fewer fields than the header (values left off at the end) read with the missing values empty",
             rows(short_rows)
+        ));
+    }
+    if split_unread > 0 {
+        ctx.note(format!(
+            "{} with a delimiter inside the last value, in a column not read (an unquoted `{}` in a note), read without it",
+            rows(split_unread),
+            char::from(delimiter)
         ));
     }
     if trailing_empty > 0 {
@@ -2206,6 +2282,71 @@ fn other_export_header(
         .find(|c| column_named(c, spec, opts).is_some_and(|col| col != "date"))?
         .clone();
     Some((as_written, named))
+}
+
+/// Where an unquoted delimiter inside a text value (`walk, brisk`, `Toast, buttered`) splits a
+/// row of one field too many: the 0-based index of the field the text starts in, when two
+/// neighbouring fields are both text (a letter, and neither a number nor a date) and the
+/// second starts with a space (`, brisk`, as people write a comma in text; `kg,clinic` is two
+/// values), the only such pair in the row.
+fn split_text_at(rec: &csv::StringRecord, opts: &CsvOptions) -> Option<usize> {
+    let text = |f: &str| {
+        let t = f.trim();
+        t.chars().any(char::is_alphabetic)
+            && numeric_parts(t).is_none()
+            && parse_when(t, opts).is_none()
+    };
+    let pairs: Vec<usize> = (0..rec.len().saturating_sub(1))
+        .filter(|&i| text(&rec[i]) && rec[i + 1].starts_with(' ') && text(&rec[i + 1]))
+        .collect();
+    match pairs[..] {
+        [i] => Some(i),
+        _ => None,
+    }
+}
+
+/// The warning for a row of one field too many whose extra field is a text value split by an
+/// unquoted delimiter at field `i` (0-based): the line and the field where the delimiter is,
+/// and how to write the value.
+fn split_text_warning(
+    ctx: &FileCtx,
+    rec: &csv::StringRecord,
+    i: usize,
+    line: u64,
+    width: usize,
+    header: Option<&str>,
+    delimiter: u8,
+) -> Diagnostic {
+    let d = char::from(delimiter);
+    let joined = format!("{}{d}{}", rec[i].trim(), rec[i + 1].trim_end());
+    let column = header.map_or_else(|| format!("field {}", i + 1), |h| format!("`{h}`"));
+    let mut w = ctx
+        .warning(format!(
+            "row has one field too many ({} for the {width} columns of the header): the `{d}` in {column} value `{joined}` (field {}) is read as a delimiter; the row is dropped",
+            rec.len(),
+            i + 1
+        ))
+        .at(line, Some(i as u64 + 1))
+        .expected(fields(width))
+        .found(format!(
+            "{}: `{}`",
+            fields(rec.len()),
+            shorten(
+                &rec.iter()
+                    .take(MAX_CSV_COLUMNS + 1)
+                    .map(str::trim)
+                    .collect::<Vec<_>>()
+                    .join(&d.to_string()),
+                200
+            )
+        ))
+        .hint(format!(
+            "quote the value: `\"{joined}\"` (or write it without the `{d}`)"
+        ));
+    if let Some(h) = header {
+        w = w.field(h);
+    }
+    w
 }
 
 /// `1 field`, `4 fields` ("row has 1 fields" read as a slip of ours).

@@ -2682,3 +2682,96 @@ fn activity_times_of_day_under_a_utc_header_are_converted_to_the_programs_zone()
     assert_eq!(got, [(d(2026, 9, 14), 40.0), (d(2026, 9, 15), 30.0)]);
     assert_eq!(warnings, [(Some(4), Some(3), ends_before)]);
 }
+
+/// An unquoted comma inside a text value, on a row whose last column is empty
+/// (`2026-03-02,walk, brisk,30,` under `Date,Activity,Minutes,Notes`), gives the row one field
+/// too many with the last empty: it was read as ending in a delimiter, shifted, and the
+/// warning was "not a number in `minutes`" at `brisk`. It is now the field too many, at the
+/// line and field of the comma, with how to quote the value; the same in intake and weights
+/// files. A comma in an unread note after every column read costs nothing: the row is read.
+#[test]
+fn a_comma_inside_a_label_is_a_field_too_many_at_the_comma() {
+    let warnings = |diags: &[Diagnostic]| -> Vec<(Option<u64>, Option<u64>, Option<String>)> {
+        diags
+            .iter()
+            .filter(|x| x.severity == Severity::Warning)
+            .map(|x| (x.line, x.column, x.field.clone()))
+            .collect()
+    };
+    // Activity: the label split, the notes empty.
+    let text = "Date,Activity,Minutes,Notes\n\
+                2026-05-01,Cycling,30,\n\
+                2026-05-02,walk, brisk,30,\n\
+                2026-05-03,Walking,45,felt good\n";
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    let got: Vec<(NaiveDate, f64)> = a.iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 1), 30.0), (d(2026, 5, 3), 45.0)]);
+    assert_eq!(
+        warnings(&diags),
+        [(Some(3), Some(2), Some("Activity".to_string()))]
+    );
+    let w = &diags[0];
+    assert_eq!(
+        w.message,
+        "row has one field too many (5 for the 4 columns of the header): the `,` in `Activity` value `walk, brisk` (field 2) is read as a delimiter; the row is dropped"
+    );
+    assert_eq!(
+        w.hint.as_deref(),
+        Some("quote the value: `\"walk, brisk\"` (or write it without the `,`)")
+    );
+    // Quoted as the hint says, the row is read.
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        &text.replace("walk, brisk", "\"walk, brisk\""),
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(a.len(), 3, "{diags:#?}");
+    assert_eq!(a[1].minutes, 30.0);
+
+    // Intake: a food's name split, its notes empty.
+    let text = "Date,Food,kcal,Notes\n\
+                2026-05-01,Porridge,320,\n\
+                2026-05-01,Toast, buttered,250,\n\
+                2026-05-02,Soup,400,\n";
+    let mut diags = Vec::new();
+    let days = parse_intake(
+        text,
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    let got: Vec<(NaiveDate, f64)> = days.iter().map(|x| (x.date, x.kcal)).collect();
+    assert_eq!(got, [(d(2026, 5, 1), 320.0), (d(2026, 5, 2), 400.0)]);
+    assert_eq!(
+        warnings(&diags),
+        [(Some(3), Some(2), Some("Food".to_string()))]
+    );
+
+    // Weights: a source split is dropped there; a comma in the unread note at the end is not.
+    let (w, diags) = weights(
+        "date,weight,unit,source,notes\n\
+         2026-05-01,81.5,kg,home,\n\
+         2026-05-02,81.2,kg,clinic, room 2,\n\
+         2026-05-03,81.0,kg,home,after a run, tired\n",
+    );
+    let got: Vec<f64> = w.iter().map(|x| x.weight.kg()).collect();
+    assert_eq!(got, [81.5, 81.0]);
+    assert_eq!(
+        warnings(&diags),
+        [(Some(3), Some(4), Some("source".to_string()))]
+    );
+}
