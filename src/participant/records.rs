@@ -1877,7 +1877,18 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<(f64, Option<W
     };
     // A time alone is on the start's day as written: its UTC day for a UTC start.
     let end_on = start_utc.map_or(start.date, |t| t.date_naive());
-    let (end, end_utc) = at("end", end_on, d)?;
+    let (mut end, mut end_utc) = at("end", end_on, d)?;
+    // Two UTC times of day, the end before the start (`23:30` to `00:30`: an evening in the
+    // Americas crosses UTC midnight) were dropped as ending before they start. The end is on
+    // the next UTC day when that reading is the nearer one (under 12 hours; common practice):
+    // `03:50` to `03:40` is still a slip, not an activity of 23 hours 50 minutes.
+    if let (Some(u0), Some(u1)) = (start_utc, end_utc)
+        && u1 < u0
+        && u0 - u1 > chrono::TimeDelta::hours(12)
+        && let Some(next) = end_on.succ_opt()
+    {
+        (end, end_utc) = at("end", next, d)?;
+    }
     let (start_raw, end_raw) = (
         c.text(start_col).unwrap_or_default(),
         c.text("end").unwrap_or_default(),

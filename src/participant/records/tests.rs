@@ -2676,6 +2676,16 @@ fn activity_times_of_day_under_a_utc_header_are_converted_to_the_programs_zone()
     // Without a zone: on the UTC day.
     let (got, ..) = read(utc, None);
     assert_eq!(got, [(d(2026, 9, 14), 40.0), (d(2026, 9, 15), 30.0)]);
+    // Across UTC midnight (19:30 to 20:30 in New York): the end is on the next UTC day, and
+    // the hour counts on the local evening's day; the slip of 03:50 to 03:40 is still dropped.
+    let across = "Date,Start Time (UTC),End Time (UTC),Activity\n\
+                  2026-09-14,23:30,00:30,Walking\n\
+                  2026-09-16,03:50,03:40,Walking\n";
+    let (got, warnings, _) = read(across, Some("America/New_York"));
+    assert_eq!(got, [(d(2026, 9, 14), 60.0)]);
+    assert_eq!(warnings, [(Some(3), Some(3), ends_before.clone())]);
+    let (got, ..) = read(across, None);
+    assert_eq!(got, [(d(2026, 9, 14), 60.0)]);
     // No UTC in the headers: local times, on the row's date, as before.
     let local = utc.replace(" (UTC)", "");
     let (got, warnings, _) = read(&local, Some("America/New_York"));
