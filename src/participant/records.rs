@@ -2363,16 +2363,31 @@ pub fn parse_sessions(
 /// (`% (NGSP)`, `% DCCT`, `mmol/mol (IFCC)`, `mmol/mol Hb`: IFCC–NGSP dual reporting, the 2007
 /// consensus statement on HbA1c standardisation, Diabetes Care 30:2399, from memory); without
 /// them a diabetes-range result was dropped with a warning and never reached the clinician's
-/// flag. `mg/100 mL` is mg/dL (1 dL = 100 mL).
+/// flag. `mg/100 mL` is mg/dL (1 dL = 100 mL). The unit may also name the test (`%HbA1c`,
+/// `% HbA1c`, `mmol/mol HbA1c`), or be the standard alone, as some laboratory systems export it:
+/// `NGSP` (or `DCCT`) reports in %, `IFCC` in mmol/mol (same consensus statement, from memory);
+/// those were dropped as units not accepted, so a diabetes-range value raised no flag.
 fn lab_unit(test: LabTest, unit: &str) -> Option<fn(f64) -> f64> {
-    let u = unit.to_lowercase().replace([' ', '(', ')'], "");
+    let mut u = unit.to_lowercase().replace([' ', '(', ')'], "");
+    if test == LabTest::Hba1c {
+        for name in ["hba1c", "hb_a1c", "a1c"] {
+            if let Some(rest) = u.strip_suffix(name).filter(|r| !r.is_empty()) {
+                u = rest.to_string();
+                break;
+            }
+        }
+    }
     Some(match (test, u.as_str()) {
         (LabTest::FastingGlucose, "mmol/l") => |v| v,
         (LabTest::FastingGlucose, "mg/dl" | "mg/100ml") => glucose_mgdl_to_mmoll,
-        (LabTest::Hba1c, "%" | "percent" | "%ngsp" | "%dcct" | "%dcct/ngsp" | "%ngsp/dcct") => {
-            |v| v
+        (
+            LabTest::Hba1c,
+            "%" | "percent" | "%ngsp" | "%dcct" | "%dcct/ngsp" | "%ngsp/dcct" | "ngsp" | "dcct"
+            | "dcct/ngsp" | "ngsp/dcct",
+        ) => |v| v,
+        (LabTest::Hba1c, "mmol/mol" | "mmol/molifcc" | "mmol/molhb" | "ifcc") => {
+            hba1c_mmolmol_to_percent
         }
-        (LabTest::Hba1c, "mmol/mol" | "mmol/molifcc" | "mmol/molhb") => hba1c_mmolmol_to_percent,
         (LabTest::Waist, "cm") => |v| v,
         (LabTest::Waist, "in" | "inch" | "inches" | "[in_i]") => |v| v * CM_PER_IN,
         (LabTest::SystolicBp | LabTest::DiastolicBp, "mmhg") => |v| v,

@@ -14,6 +14,7 @@ use super::Scope;
 use super::format as fmt;
 use super::templates::TemplateSet;
 use super::{ProgramView, RenderError, TableView};
+use crate::diag::Diagnostic;
 use crate::modules::ModuleResults;
 use crate::program::Format;
 use chrono::{Datelike, Months, NaiveDate};
@@ -108,8 +109,56 @@ pub fn reason(code: &str) -> &'static str {
             "Weigh-ins jumped by several kilograms within days and stayed there (a new scale, or a real change of fluid or weight?)"
         }
         "pregnancy" => "Pregnancy noted in the profile: the report makes no suggestions for change",
+        LABS_NOT_READ => {
+            "Lab results that could not be read, so they were not checked against the diabetes range or any other cut-off: check the values in labs.csv"
+        }
         _ => "Raised for review by a licensed clinician",
     }
+}
+
+/// The code of the list's item saying that lab rows of a participant could not be read: no
+/// clinical flag, but a lab value nobody checked (an HbA1c in a unit the reader does not know
+/// was a warning in the data-quality list only, and the clinician never heard of it).
+pub const LABS_NOT_READ: &str = "labs_not_read";
+
+/// Up to this many unread lab rows are named in the item's details; the rest are counted.
+const LAB_ROWS_NAMED: usize = 5;
+
+/// The details of [`LABS_NOT_READ`] from a participant's diagnostics: each warning or error of
+/// their `labs.csv` that drops a row or the file, with its line; `None` when there is none.
+fn labs_not_read(diagnostics: &[Diagnostic]) -> Option<String> {
+    let unread: Vec<String> = diagnostics
+        .iter()
+        .filter(|d| {
+            d.file.ends_with("/labs.csv")
+                && (d.message.contains("dropped") || d.message.contains("not used"))
+        })
+        .map(|d| {
+            let at = d.line.map(|l| format!(" line {l}")).unwrap_or_default();
+            let found = d
+                .found
+                .as_deref()
+                .map(|f| format!(" (found {f})"))
+                .unwrap_or_default();
+            format!("labs.csv{at}: {}{found}", d.message)
+        })
+        .collect();
+    if unread.is_empty() {
+        return None;
+    }
+    let mut text = unread
+        .iter()
+        .take(LAB_ROWS_NAMED)
+        .cloned()
+        .collect::<Vec<_>>()
+        .join("; ");
+    if unread.len() > LAB_ROWS_NAMED {
+        text.push_str(&format!(
+            "; and {} more (see data-quality.csv)",
+            unread.len() - LAB_ROWS_NAMED
+        ));
+    }
+    Some(text)
 }
 
 /// The period before `p`: the previous calendar month when `p` is one whole month, else the
@@ -191,10 +240,12 @@ pub fn for_participant(
     plan: &Scope<'_>,
     data: &ParticipantData,
     results: &ModuleResults,
+    diagnostics: &[Diagnostic],
 ) -> Option<FollowupRecord> {
     plan.program.def.followup.as_ref()?;
     let flags = clinical_codes(results);
-    if flags.is_empty() {
+    let unread = labs_not_read(diagnostics);
+    if flags.is_empty() && unread.is_none() {
         return None;
     }
     let before: Vec<String> = previous_period(plan.period, plan.program.info.start)
@@ -209,7 +260,7 @@ pub fn for_participant(
     let v = results.views();
     let (trend, outcomes, energy) = (v.trend.as_ref(), v.outcomes.as_ref(), v.energy.as_ref());
     let period = format!("{} to {}", plan.period.from, plan.period.to);
-    let items = flags
+    let mut items: Vec<FollowupItem> = flags
         .into_iter()
         .map(|(code, message, at_follow_up)| {
             let dates = iso_dates(&message);
@@ -227,6 +278,14 @@ pub fn for_participant(
             }
         })
         .collect();
+    items.extend(unread.map(|details| FollowupItem {
+        code: LABS_NOT_READ.into(),
+        reason: reason(LABS_NOT_READ).into(),
+        details,
+        dates: period.clone(),
+        new: false,
+        at_follow_up: false,
+    }));
     Some(FollowupRecord {
         id: data.profile.id.clone(),
         name: data.profile.name.clone(),
@@ -315,6 +374,9 @@ fn values(r: &FollowupRecord, plan: &Scope<'_>) -> String {
 /// 15 Aug 2026, was listed as "new" for a low BMI that only follow-up weigh-ins showed, with
 /// nothing to tell it from a finding of the program).
 fn status(it: &FollowupItem, r: &FollowupRecord) -> String {
+    if it.code == LABS_NOT_READ {
+        return "not read".into();
+    }
     let s = if it.new { "new" } else { "continuing" };
     let left = r
         .left_program
@@ -376,6 +438,22 @@ pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext 
         .iter()
         .filter(|r| r.items.iter().any(|i| i.new))
         .count();
+    let flagged = records
+        .iter()
+        .filter(|r| r.items.iter().any(|i| i.code != LABS_NOT_READ))
+        .count();
+    let unread = records
+        .iter()
+        .filter(|r| r.items.iter().any(|i| i.code == LABS_NOT_READ))
+        .count();
+    let mut summary = summary_line(flagged, with_new);
+    match unread {
+        0 => {}
+        1 => summary.push_str(" 1 participant has lab results that could not be read."),
+        n => summary.push_str(&format!(
+            " {n} participants have lab results that could not be read."
+        )),
+    }
     let mut rows = Vec::new();
     for r in records {
         let vals = values(r, plan);
@@ -397,7 +475,7 @@ pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext 
         purpose: PURPOSE.into(),
         participants: records.len(),
         with_new,
-        summary: summary_line(records.len(), with_new),
+        summary,
         compared_with,
         table: TableView {
             header: vec![
@@ -449,7 +527,13 @@ pub fn csv(plan: &Scope<'_>, records: &[FollowupRecord]) -> Result<Vec<u8>, Rend
                 &plan.period.from.to_string(),
                 &plan.period.to.to_string(),
                 &it.code,
-                if it.new { "new" } else { "continuing" },
+                if it.code == LABS_NOT_READ {
+                    "not_read"
+                } else if it.new {
+                    "new"
+                } else {
+                    "continuing"
+                },
                 if it.at_follow_up { "yes" } else { "no" },
                 &it.reason,
                 &it.dates,

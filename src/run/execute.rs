@@ -795,7 +795,12 @@ fn process_participant(
             plan.period.to,
         )));
         // Clinician follow-up list: this participant's flags, when the program turns it on.
-        rec.followup = report::followup::for_participant(&plan.report_scope(), &data, &results);
+        rec.followup = report::followup::for_participant(
+            &plan.report_scope(),
+            &data,
+            &results,
+            &loaded.diagnostics,
+        );
     }
     staging.write(&partial::cache_path(&rec.id), &rec.to_bytes())?;
     Ok(rec)

@@ -811,3 +811,80 @@ fn a_participant_whose_sex_is_not_recorded_gets_a_report() {
     let r = t.run(&["check", "{dir}", "--as-of", "2026-10-01", "--verbose"]);
     assert!(!r.stdout.contains("SG-017/profile.yaml"), "{}", r.stdout);
 }
+
+/// An HbA1c written `%HbA1c` (or `IFCC` alone) was "unit not accepted": the diabetes-range
+/// value raised no flag, and the clinician's list did not name the person at all, so nobody
+/// knew a value had gone unchecked. Now such units are read, and lab rows still not read put
+/// the person on the list with status "not read" and the rows named.
+#[test]
+fn followup_list_names_lab_rows_that_could_not_be_read() {
+    let prog = ProgramTest::sample();
+    let yaml = prog.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Program nurse\"\n"),
+    )
+    .unwrap();
+    let labs = |id: &str, rows: &str| {
+        std::fs::write(
+            prog.dir.join(format!("participants/{id}/labs.csv")),
+            format!("date,test,value,unit\n{rows}"),
+        )
+        .unwrap()
+    };
+    labs(
+        "SG-001",
+        "2026-09-10,hba1c,7.1,A1c units\n2026-09-15,hba1c,7.2,%HbA1c\n",
+    );
+    labs("SG-002", "2026-09-15,hba1c,55,IFCC\n");
+    labs("SG-003", "2026-09-15,hba1c,7.2,pct\n");
+    let out = prog.run(&["run", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(out.code, 4, "{}", out.stderr);
+    let folder = prog.dir.join("reports/followup");
+    let mut r = csv::Reader::from_path(folder.join("followup.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let col = |n: &str| header.iter().position(|h| h == n).unwrap();
+    let mut got: Vec<(String, String, String, String)> = r
+        .records()
+        .map(|rec| rec.unwrap())
+        .filter(|rec| ["SG-001", "SG-002", "SG-003"].contains(&&rec[col("participant_id")]))
+        .map(|rec| {
+            (
+                rec[col("participant_id")].to_string(),
+                rec[col("flag")].to_string(),
+                rec[col("status")].to_string(),
+                rec[col("details")].to_string(),
+            )
+        })
+        .collect();
+    got.sort();
+    let short: Vec<(&str, &str, &str)> = got
+        .iter()
+        .map(|(i, f, s, _)| (i.as_str(), f.as_str(), s.as_str()))
+        .collect();
+    assert_eq!(
+        short,
+        [
+            ("SG-001", "lab_diabetes_range", "new"),
+            ("SG-001", "labs_not_read", "not_read"),
+            ("SG-002", "lab_diabetes_range", "new"),
+            ("SG-003", "labs_not_read", "not_read"),
+        ]
+    );
+    assert_eq!(
+        got[1].3,
+        "labs.csv line 2: unit not accepted for `hba1c`; the row is dropped (found `A1c units`)"
+    );
+    // The unit not read is a warning at its cell in the data-quality list.
+    let dq = std::fs::read_to_string(prog.dir.join("reports/metrics/data-quality.csv")).unwrap();
+    assert!(
+        dq.contains("warning,SG-003,participants/SG-003/labs.csv,2,4,unit,unit not accepted for `hba1c`; the row is dropped"),
+        "{dq}"
+    );
+    let html = std::fs::read_to_string(folder.join("followup.html")).unwrap();
+    assert!(
+        html.contains("2 participants have lab results that could not be read."),
+        "{html}"
+    );
+}

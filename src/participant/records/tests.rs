@@ -1423,6 +1423,37 @@ fn lab_units_with_their_standard_named_are_read() {
     assert!(diags[0].message.contains("unit not accepted"));
 }
 
+/// `%HbA1c`, `% HbA1c`, `NGSP` alone and `IFCC` alone were "unit not accepted", so an HbA1c of
+/// 7.2 % or 55 mmol/mol raised no flag for the clinician. They are read (IFCC alone in
+/// mmol/mol, NGSP alone in %); a unit still not read is a warning at its cell.
+#[test]
+fn hba1c_units_that_name_the_test_or_the_standard_alone_are_read() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,hba1c,7.2,%HbA1c\n2026-04-02,hba1c,7.2,% HbA1c\n2026-04-03,hba1c,7.2,NGSP\n2026-04-04,hba1c,55,IFCC\n2026-04-05,hba1c,55,mmol/mol HbA1c\n2026-04-06,hba1c,7.2,HbA1c\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let got: Vec<f64> = v
+        .iter()
+        .map(|l| (l.value * 1000.0).round() / 1000.0)
+        .collect();
+    // Hoelzel et al. 2004: 55 mmol/mol = 0.09148 × 55 + 2.152 = 7.183 %.
+    assert_eq!(got, [7.2, 7.2, 7.2, 7.183, 7.183]);
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(
+        (diags[0].line, diags[0].column, diags[0].message.as_str()),
+        (
+            Some(7),
+            Some(4),
+            "unit not accepted for `hba1c`; the row is dropped"
+        )
+    );
+}
+
 #[test]
 fn missing_required_column_makes_the_file_unusable() {
     let mut diags = Vec::new();
