@@ -577,7 +577,29 @@ fn fast_loss_spans(
 }
 
 fn kg_lb(kg: f64) -> String {
-    format!("{kg:.1} kg ({:.1} lb)", Mass::from_kg(kg).lb())
+    kg_lb_to(kg, 1)
+}
+
+fn kg_lb_to(kg: f64, decimals: usize) -> String {
+    format!(
+        "{kg:.decimals$} kg ({:.decimals$} lb)",
+        Mass::from_kg(kg).lb()
+    )
+}
+
+/// A rate above the fast-change `limit`, printed beside it: to one decimal, or to as many as it
+/// takes (up to three) for it not to print as the limit itself. "faster than 1.0 kg (2.2 lb) a
+/// week … about 1.0 kg (2.2 lb) a week" was the flag of 1.01 kg a week: the rule is "faster
+/// than" (`rate > limit`, exactly 1 kg a week is not flagged), and the words now show it
+/// (`1.01 kg (2.23 lb)`). Closer than that it is "just over" the limit.
+fn rate_beside_limit(rate: f64, limit: f64) -> String {
+    (1..=3)
+        .map(|d| (kg_lb_to(rate, d), kg_lb_to(limit, d)))
+        .find(|(r, l)| r != l)
+        .map_or_else(
+            || format!("just over {}", kg_lb(limit)),
+            |(r, _)| format!("about {r}"),
+        )
 }
 
 impl MetricModule for OutcomesModule {
@@ -1219,16 +1241,16 @@ fn push_fast_loss_flag(
     // (most recently 6 Nov to 27 Nov)" was all a clinician read of 26 weeks at 1.6 kg a week.
     let when = if from < d0 {
         format!(
-            "in every {span} days from {from} to {d1} (the last {span}, {d0} to {d1}: about {} a \
-             week; fastest about {} a week)",
-            kg_lb(rate),
-            kg_lb(fastest),
+            "in every {span} days from {from} to {d1} (the last {span}, {d0} to {d1}: {} a \
+             week; fastest {} a week)",
+            rate_beside_limit(rate, limit),
+            rate_beside_limit(fastest, limit),
         )
     } else {
         format!(
-            "over {span} days in a row ({d0} to {d1}: about {} a week; fastest about {} a week)",
-            kg_lb(rate),
-            kg_lb(fastest),
+            "over {span} days in a row ({d0} to {d1}: {} a week; fastest {} a week)",
+            rate_beside_limit(rate, limit),
+            rate_beside_limit(fastest, limit),
         )
     };
     output.push_flag(
@@ -1265,11 +1287,11 @@ fn push_fast_gain_flag(
         FlagSeverity::Clinical,
         format!(
             "Weight went up faster than {} a week over {span} days in a row (most recently \
-             {d0} to {d1}: about {} a week). A rise this fast is more often a change of scale \
+             {d0} to {d1}: {} a week). A rise this fast is more often a change of scale \
              or clothing, a mistyped weigh-in or fluid than body fat: please check the \
              weigh-ins, and review the rise with a licensed clinician.",
             kg_lb(limit),
-            kg_lb(rate),
+            rate_beside_limit(rate, limit),
         ),
     );
 }

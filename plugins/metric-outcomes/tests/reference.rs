@@ -488,6 +488,54 @@ fn fast_loss_needs_a_sustained_rate_above_the_limit() {
     assert_eq!(codes(&run(&c, &data)), vec!["fast_loss"]);
 }
 
+/// The rule is "faster than" `fast_loss_kg_per_week` (the README, docs/METHODS.md and the
+/// code's `rate > limit` agree): at the limit, no flag; just above it, a flag whose words show
+/// the rate above the limit. 1.01 kg a week read "faster than 1.0 kg (2.2 lb) a week … about
+/// 1.0 kg (2.2 lb) a week". Checked in kg (limit 1 kg) and in pounds (a limit of 2 lb a week).
+#[test]
+fn fast_loss_at_just_below_and_just_above_the_limit_in_kg_and_lb() {
+    let data = steady_loser();
+    let flag = |per_week_kg: f64, settings: serde_json::Value| {
+        let t = trend_output(30, 30, -per_week_kg, |k| {
+            100.0 - per_week_kg * k as f64 / 7.0
+        });
+        let out = run(&ctx_with(day(0), day(30), Some(t), settings), &data);
+        out.flags
+            .iter()
+            .find(|f| f.code == "fast_loss")
+            .map(|f| f.message.clone())
+    };
+    let kg = serde_json::Value::Null;
+    assert_eq!(flag(1.0, kg.clone()), None);
+    assert_eq!(flag(0.99, kg.clone()), None);
+    let above = flag(1.01, kg.clone()).expect("1.01 kg a week is faster than 1 kg");
+    assert!(
+        above.starts_with(
+            "Weight came down faster than 1.0 kg (2.2 lb) a week in every 21 days from \
+             2027-03-01 to 2027-03-31 (the last 21, 2027-03-10 to 2027-03-31: about 1.01 kg \
+             (2.23 lb) a week; fastest about 1.01 kg (2.23 lb) a week)."
+        ),
+        "{above}"
+    );
+    // Closer than the printed decimals tell: "just over" the limit, never "about" it.
+    let hair = flag(1.0001, kg).expect("above the limit");
+    assert!(
+        hair.contains("2027-03-31: just over 1.0 kg (2.2 lb) a week;"),
+        "{hair}"
+    );
+    // 2 lb a week as the limit: exactly 2 lb a week is not flagged, 1 % more is.
+    let lb = 0.453_592_37;
+    let two_lb = serde_json::json!({"fast_loss_kg_per_week": 2.0 * lb});
+    assert_eq!(flag(2.0 * lb, two_lb.clone()), None);
+    assert_eq!(flag(1.98 * lb, two_lb.clone()), None);
+    let above = flag(2.02 * lb, two_lb).expect("2.02 lb a week is faster than 2 lb");
+    assert!(
+        above.contains("faster than 0.9 kg (2.0 lb) a week")
+            && above.contains("about 0.92 kg (2.02 lb) a week;"),
+        "{above}"
+    );
+}
+
 fn with_intake(mut p: ParticipantData, days: &[(i64, f64)]) -> ParticipantData {
     p.intake = days
         .iter()
