@@ -159,10 +159,11 @@ pub fn seen_at_follow_up(
 impl ModuleSet {
     /// Runs every module for one participant, in order. Never fails as a whole: each module's
     /// problem is a [`ModuleFailure`] in the result. When there are follow-up weigh-ins after
-    /// the withdrawal day ([`without_follow_up`]) every module runs a second time on the
-    /// records up to that day: the results of the modules of [`PROGRAM_DAYS_ONLY`] are those
-    /// of that second run, and a flag the second run does not raise was seen at follow-up only
-    /// ([`ModuleResults::follow_up_flags`]).
+    /// the withdrawal day ([`without_follow_up`]) modules run a second time on the records up
+    /// to that day: the results of the modules of [`PROGRAM_DAYS_ONLY`] are those of that
+    /// second run (every module up to them runs on both), and a flag the second run does not
+    /// raise was seen at follow-up only ([`ModuleResults::follow_up_flags`]); a module after
+    /// them runs the second time only when it, or a module after it, raised a flag.
     pub fn run(
         &self,
         program: &ProgramInfo,
@@ -176,10 +177,23 @@ impl ModuleSet {
         // weigh-ins): the results of PROGRAM_DAYS_ONLY, and the flags raised without the
         // follow-up weigh-ins.
         let mut program_days = ModuleResults::default();
-        for entry in &self.entries {
+        // Up to the last module of PROGRAM_DAYS_ONLY every module runs on both: that module's
+        // results are of the records up to the withdrawal day, after every module before it
+        // on the same records (each module is given every earlier output, and an external
+        // one may read any of them).
+        let both = match &cut {
+            Some(_) => self
+                .entries
+                .iter()
+                .rposition(|e| PROGRAM_DAYS_ONLY.contains(&e.spec.id.as_str()))
+                .map_or(0, |i| i + 1),
+            None => 0,
+        };
+        for (i, entry) in self.entries.iter().enumerate() {
             let program_only = PROGRAM_DAYS_ONLY.contains(&entry.spec.id.as_str());
             let on_cut = cut
                 .as_ref()
+                .filter(|_| i < both)
                 .map(|cut| self.run_one(entry, program, period, as_of, cut, &program_days));
             let outcome = match &on_cut {
                 Some(o) if program_only => o.clone(),
@@ -189,6 +203,29 @@ impl ModuleSet {
                 program_days.push(&entry.spec.id, o);
             }
             results.push(&entry.spec.id, outcome);
+        }
+        // After it, the records up to the withdrawal day only tell which flags were seen at
+        // follow-up only: a module whose run on all the records raised no flag has none to
+        // tell, so it runs again only when a module after it does (which is given its output).
+        // A program whose external module comes last and raises no flag ran it twice for
+        // everyone who stopped the program and weighed in after.
+        if let Some(cut) = &cut {
+            let flagged = |e: &super::registry::Entry| {
+                results
+                    .output(&e.spec.id)
+                    .is_some_and(|o| !o.flags.is_empty())
+            };
+            if let Some(last) = self
+                .entries
+                .iter()
+                .rposition(flagged)
+                .filter(|&l| l >= both)
+            {
+                for entry in &self.entries[both..=last] {
+                    let o = self.run_one(entry, program, period, as_of, cut, &program_days);
+                    program_days.push(&entry.spec.id, o);
+                }
+            }
         }
         if let Some(left) = cut.as_ref().and_then(|c| c.profile.withdrew) {
             let mut seen = Vec::new();

@@ -821,3 +821,102 @@ fn registry_errors_name_the_line_and_column_of_the_id_or_setting() {
         [s("modules[1].id", 3, 30)]
     );
 }
+
+/// A module that counts its calls and raises an info flag when told to.
+struct CallCounter {
+    id: &'static str,
+    calls: std::sync::Arc<std::sync::atomic::AtomicUsize>,
+    flag: bool,
+}
+
+impl MetricModule for CallCounter {
+    fn spec(&self) -> ModuleSpec {
+        ModuleSpec {
+            id: self.id.into(),
+            version: "1.0.0".into(),
+            description: format!("counting module {}", self.id),
+            settings: vec![],
+            outputs: vec![],
+            requires: vec![],
+        }
+    }
+
+    fn compute(
+        &self,
+        _ctx: &ModuleContext,
+        _data: &ParticipantData,
+    ) -> Result<ModuleOutput, ModuleError> {
+        self.calls.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
+        let mut out = ModuleOutput::default();
+        if self.flag {
+            out.push_flag("noted", cohortpress_metric_api::FlagSeverity::Info, "noted");
+        }
+        Ok(out)
+    }
+}
+
+/// For someone who stopped the program and weighed in after, every module ran twice, external
+/// ones included, though after `energy` the second run only tells which flags were seen at
+/// follow-up only. A module after it that raises no flag, with none after it that does, now
+/// runs once; one that raises a flag, or that comes before a module that does, still runs
+/// twice; and the results are those of running everything twice.
+#[test]
+fn a_module_after_energy_that_raises_no_flag_runs_once_for_someone_who_stopped() {
+    use cohortpress_metric_api::{WithdrawalReason, fixture};
+    use std::sync::Arc;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    let left = fixture::period().from;
+    let mut stopped = fixture::participant();
+    for w in &mut stopped.weights {
+        let after = (w.date - left).num_days().max(0) as f64;
+        w.weight = Mass::from_kg(w.weight.kg() - 0.25 * after);
+    }
+    stopped.profile.withdrew = Some(left);
+    stopped.profile.withdrawal_reason = WithdrawalReason::StoppedProgram;
+    let spec = registry::builtin_modules()[0].spec();
+    let fx = fixture::context(&spec, &[]);
+    // Calls of `quiet` (no flag) and `loud` (a flag), and the results, for a module order.
+    let run = |order: &str, p: &ParticipantData| {
+        let quiet = Arc::new(AtomicUsize::new(0));
+        let loud = Arc::new(AtomicUsize::new(0));
+        let mut mods = registry::builtin_modules();
+        mods.push(Box::new(CallCounter {
+            id: "quiet",
+            calls: quiet.clone(),
+            flag: false,
+        }));
+        mods.push(Box::new(CallCounter {
+            id: "loud",
+            calls: loud.clone(),
+            flag: true,
+        }));
+        let yaml: String = order.split(' ').map(|m| format!("  - id: {m}\n")).collect();
+        let (set, diags) = build_with(&program(&yaml), mods).expect("builds");
+        assert!(errors(&diags).is_empty(), "{diags:?}");
+        let r = set.run(&fx.program, fx.period, fx.as_of, p);
+        (quiet.load(Ordering::SeqCst), loud.load(Ordering::SeqCst), r)
+    };
+    let (q, l, r) = run("trend energy adherence outcomes quiet", &stopped);
+    assert_eq!((q, l), (1, 0));
+    assert_eq!(
+        r.follow_up_flags,
+        vec![("outcomes".to_string(), "fast_loss".to_string())]
+    );
+    // Before energy: on both records, as energy is given its output.
+    let (q, ..) = run("trend quiet energy adherence outcomes", &stopped);
+    assert_eq!(q, 2);
+    // Before a module that raises a flag: twice; the flag is no follow-up flag (raised on both).
+    let (q, l, r2) = run("trend energy adherence outcomes quiet loud", &stopped);
+    assert_eq!((q, l), (2, 2));
+    assert_eq!(r2.follow_up_flags, r.follow_up_flags);
+    // A flagged module last, the quiet one after it: once.
+    let (q, l, _) = run("trend energy adherence outcomes loud quiet", &stopped);
+    assert_eq!((q, l), (1, 2));
+    // Nobody else is affected: one run each.
+    let mut stayed = stopped.clone();
+    stayed.profile.withdrew = None;
+    stayed.profile.withdrawal_reason = WithdrawalReason::default();
+    let (q, l, r) = run("trend energy adherence outcomes quiet loud", &stayed);
+    assert_eq!((q, l), (1, 1));
+    assert!(r.follow_up_flags.is_empty());
+}
