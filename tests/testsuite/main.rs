@@ -13,6 +13,7 @@ mod guidance;
 mod harness;
 mod hostile;
 mod layering;
+mod numbers;
 mod ledger;
 mod operation;
 mod reports;
