@@ -45,7 +45,7 @@ fn trend_rows(html: &str) -> Vec<(String, f64, String)> {
 }
 
 /// The fixture program with CL-01, a woman weighed only at the clinic, every 28 days, about 100
-/// kg, run from 1 April to 30 September 2026, HTML only.
+/// kg, run from 1 April to 30 September 2026 (six whole months), HTML only.
 fn clinic_only_run() -> ProgramTest {
     let t = ProgramTest::fixture("report-small");
     let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
@@ -126,4 +126,21 @@ fn a_trend_band_no_body_could_span_is_left_out_of_the_report() {
     let sg = page(&t, "participants/SG-007.html");
     assert!(trend_rows(&sg).iter().all(|r| r.2 != "–"));
     assert!(!sg.contains("the band is left out"));
+}
+
+/// `--from 2026-04-01 --to 2026-09-30` (six whole months): every page was titled "April 2026",
+/// the habits read "Days with a weigh-in per week, April 2026", and the group report's month
+/// over month row said "April 2026". A period is named as a month only when it is one.
+#[test]
+fn a_period_of_several_whole_months_is_not_named_as_its_first_month() {
+    let t = clinic_only_run();
+    for rel in [
+        "participants/CL-01.html",
+        "participants/SG-007.html",
+        "group/program.html",
+    ] {
+        let html = page(&t, rel);
+        assert!(html.contains("1 Apr 2026 – 30 Sep 2026"), "{rel}");
+        assert!(!html.contains("April 2026"), "{rel} says April 2026");
+    }
 }
