@@ -234,7 +234,26 @@ pub fn build(
         }
         u => u,
     };
-    let (energy_view, energy_chart) = match &v.energy {
+    // Weeks are named by their Monday, and a participant's first week starts before they
+    // enrolled: every sample report's tables read "Week of 30 Mar 2026" in a program that
+    // began on 1 April (and "21 Dec 2026" for one that began on Saturday 26 December). The
+    // tables and charts name such a week by its first day in the participant's span instead.
+    let first_day = p.enrolled.max(plan.program.info.start);
+    let energy_clipped = v.energy.as_ref().map(|e| {
+        let mut e = e.clone();
+        for w in &mut e.weekly_energy {
+            w.week_start = week_named_from(w.week_start, first_day);
+        }
+        e
+    });
+    let adherence_clipped = v.adherence.as_ref().map(|a| {
+        let mut a = a.clone();
+        for w in &mut a.weekly {
+            w.week_start = week_named_from(w.week_start, first_day);
+        }
+        a
+    });
+    let (energy_view, energy_chart) = match &energy_clipped {
         Some(e) => {
             let window_days = plan
                 .modules
@@ -271,7 +290,7 @@ pub fn build(
         }
         None => (None, None),
     };
-    let (adherence_view, activity_chart) = match &v.adherence {
+    let (adherence_view, activity_chart) = match &adherence_clipped {
         Some(a) => {
             let (view, chart) = adherence_section(
                 a,
@@ -879,6 +898,16 @@ fn bmi_range_words(category: Option<BmiCategory>) -> String {
         None => return String::new(),
     };
     format!("; your BMI is in the range {range}, which the WHO calls “{name}”")
+}
+
+/// The day a week starting on `monday` is named by: its first day from `first_day` on (the
+/// week `first_day` falls in starts on it), else its Monday.
+fn week_named_from(monday: NaiveDate, first_day: NaiveDate) -> NaiveDate {
+    if monday < first_day && first_day < monday + chrono::Duration::days(7) {
+        first_day
+    } else {
+        monday
+    }
 }
 
 /// Widest 95 % band of the weight trend a report shows, as a share of the trend weight either

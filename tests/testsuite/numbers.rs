@@ -144,3 +144,43 @@ fn a_period_of_several_whole_months_is_not_named_as_its_first_month() {
         assert!(!html.contains("April 2026"), "{rel} says April 2026");
     }
 }
+
+/// Every `D Mon YYYY` date a page prints.
+fn dates_in(html: &str) -> Vec<chrono::NaiveDate> {
+    let words: Vec<&str> = html
+        .split(|c: char| !c.is_ascii_alphanumeric())
+        .filter(|w| !w.is_empty())
+        .collect();
+    words
+        .windows(3)
+        .filter_map(|w| {
+            chrono::NaiveDate::parse_from_str(&format!("{} {} {}", w[0], w[1], w[2]), "%d %b %Y")
+                .ok()
+        })
+        .collect()
+}
+
+/// Weeks are named by their Monday, so the program's first week (1 April 2026 is a Wednesday)
+/// was "Week of 30 Mar 2026" in both weekly tables of every participant report, a date before
+/// the program: now "1 Apr 2026", the week's first day in the participant's span. No page
+/// prints a date before the program's start.
+#[test]
+fn no_week_is_named_by_a_day_before_the_program() {
+    let t = clinic_only_run();
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    for rel in ["participants/CL-01.html", "participants/SG-007.html"] {
+        let html = page(&t, rel);
+        let dates = dates_in(&html);
+        assert!(dates.len() > 40, "{rel}: {}", dates.len());
+        assert!(
+            dates.iter().all(|d| *d >= start),
+            "{rel}: {:?}",
+            dates.iter().filter(|d| **d < start).collect::<Vec<_>>()
+        );
+        assert_eq!(
+            html.matches("<tr><td>1 Apr 2026</td>").count(),
+            2,
+            "{rel}: the first week of both weekly tables"
+        );
+    }
+}
