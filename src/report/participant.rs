@@ -1111,14 +1111,11 @@ fn weight_chart(
             ));
         }
     }
-    if has_trend
-        && let Some(t) = v.trend.as_ref()
-    {
-        band_left_out |= t
-            .weight_trend
-            .points
-            .iter()
-            .any(|p| p.lower.is_some() && shown_trend_band(p.value, p.lower, p.upper).is_none());
+    if has_trend && let Some(t) = v.trend.as_ref() {
+        band_left_out |=
+            t.weight_trend.points.iter().any(|p| {
+                p.lower.is_some() && shown_trend_band(p.value, p.lower, p.upper).is_none()
+            });
     }
     if band_left_out {
         alt.push_str(

@@ -25,7 +25,9 @@ fn person(dir: &std::path::Path, id: &str, weights: &[(String, f64, &str)]) {
 
 /// The rows of the weight chart's data table: (week ending, trend, band cell).
 fn trend_rows(html: &str) -> Vec<(String, f64, String)> {
-    let start = html.find("<th scope=\"col\">Week ending</th>").expect("trend table");
+    let start = html
+        .find("<th scope=\"col\">Week ending</th>")
+        .expect("trend table");
     let body = &html[start..];
     let body = &body[..body.find("</tbody>").unwrap()];
     body.split("<tr><td>")
