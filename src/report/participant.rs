@@ -1584,13 +1584,15 @@ fn adherence_section(
                     .to_string()
             }
             ActivityUnread::Rows(n) if v == 0.0 => format!(
-                "activity could not be read ({n} row{} left out; see the notes on your data)",
+                "activity could not be read ({} row{} left out; see the notes on your data)",
+                fmt::int(*n as f64),
                 if *n == 1 { "" } else { "s" }
             ),
             ActivityUnread::Rows(n) => format!(
-                "{} (target {}); {n} activity row{} could not be read and {} not counted",
+                "{} (target {}); {} activity row{} could not be read and {} not counted",
                 fmt::fixed(v, 0),
                 fmt::fixed(target, 0),
+                fmt::int(*n as f64),
                 if *n == 1 { "" } else { "s" },
                 if *n == 1 { "is" } else { "are" }
             ),
