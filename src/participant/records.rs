@@ -206,8 +206,9 @@ fn parse_rows<T>(
         let rows = if dropped == 1 { "row" } else { "rows" };
         let mut e = ctx
             .error(format!(
-                "no row of the file could be read: {dropped} {rows} dropped, each named in a \
-                 warning; the file is not used"
+                "no row of the file could be read: {} {rows} dropped, each named in a \
+                 warning; the file is not used",
+                crate::diag::thousands(dropped)
             ))
             .expected("rows whose values can be read")
             .found(match &first.found {

@@ -227,8 +227,14 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
         out.push(err("program.title", "the program title is empty".into()));
     }
     if def.program.start >= def.program.end {
+        // A program of one day (end = start) was told it "ends before it starts".
+        let message = if def.program.start == def.program.end {
+            "the program ends on the day it starts; a program runs for two days or more"
+        } else {
+            "the program ends before it starts"
+        };
         out.push(
-            err("program.end", "the program ends before it starts".into())
+            err("program.end", message.into())
                 .expected(format!("an end date after the start {}", def.program.start))
                 .found(def.program.end.to_string()),
         );
@@ -940,6 +946,22 @@ modules: [ {id: trend}, {id: energy}, {id: adherence}, {id: outcomes} ]
 
     fn root() -> &'static Path {
         Path::new(".")
+    }
+
+    /// A program of one day was told it "ends before it starts" (attack18).
+    #[test]
+    fn a_program_of_one_day_is_not_said_to_end_before_it_starts() {
+        let one_day = GOOD.replace("end: 2026-09-30", "end: 2026-04-01");
+        let e = parse_program(root(), &one_day).unwrap_err();
+        assert_eq!(e.len(), 1, "{e:?}");
+        assert_eq!(
+            e[0].message,
+            "the program ends on the day it starts; a program runs for two days or more"
+        );
+        assert_eq!(e[0].field.as_deref(), Some("program.end"));
+        let before = GOOD.replace("end: 2026-09-30", "end: 2026-03-31");
+        let e = parse_program(root(), &before).unwrap_err();
+        assert_eq!(e[0].message, "the program ends before it starts");
     }
 
     #[test]

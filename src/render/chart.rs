@@ -652,7 +652,10 @@ fn draw_line_chart<DB: DrawingBackend>(
     let mut chart = ChartBuilder::on(&plot_area)
         .caption(&c.title, title_text(&c.title, plot_area.dim_in_pixel().0))
         .margin(10)
-        .margin_right(18)
+        // Room for half the widest date label beyond the plot's right edge, where the axis may
+        // end on a label: "Mar 2029" (about 28 px of it) was cut to "Mar 202" with 18 px,
+        // "26 Feb" (about 20 px) lost its last pixels.
+        .margin_right(if long_range { 32 } else { 24 })
         .x_label_area_size(30)
         .y_label_area_size(if c.y_label.is_empty() { 44 } else { 62 })
         .build_cartesian_2d(x0..x1, y0..y1)?;
@@ -1054,6 +1057,99 @@ pub(crate) mod tests {
             (a + 0.412).abs() < 1e-9 && (b + 0.188).abs() < 1e-9,
             "{a} {b}"
         );
+    }
+
+    /// Width of `text` in DejaVu Sans at `size` px, from its advance widths in em (the letters
+    /// of English month names exactly; any other letter taken as wide as `W`).
+    fn text_width(text: &str, size: f64) -> f64 {
+        text.chars()
+            .map(|c| match c {
+                '0'..='9' => 0.636,
+                ' ' => 0.3179,
+                'J' => 0.295,
+                'F' => 0.575,
+                'M' => 0.863,
+                'A' => 0.684,
+                'S' => 0.635,
+                'O' => 0.787,
+                'N' => 0.748,
+                'D' => 0.770,
+                'a' => 0.613,
+                'b' | 'g' | 'p' => 0.635,
+                'c' => 0.550,
+                'e' => 0.615,
+                'l' => 0.278,
+                'n' | 'u' => 0.634,
+                'o' => 0.612,
+                'r' => 0.411,
+                't' => 0.392,
+                'v' | 'y' => 0.592,
+                _ => 0.989,
+            })
+            .sum::<f64>()
+            * size
+    }
+
+    /// The centred texts of an SVG drawing: (x, font size, text).
+    fn centred_texts(svg: &str) -> Vec<(f64, f64, String)> {
+        svg.split("<text ")
+            .skip(1)
+            .filter(|t| t.contains("text-anchor=\"middle\""))
+            .map(|t| {
+                let t = format!(" {t}");
+                let attr = |name: &str| -> f64 {
+                    let from = t.find(&format!(" {name}=\"")).unwrap() + name.len() + 3;
+                    t[from..from + t[from..].find('"').unwrap()]
+                        .parse()
+                        .unwrap()
+                };
+                let body = &t[t.find('>').unwrap() + 1..t.find("</text>").unwrap()];
+                (attr("x"), attr("font-size"), body.trim().to_string())
+            })
+            .collect()
+    }
+
+    /// A three-year program's weight chart ended its date axis with "Mar 202" in the PDF and
+    /// the HTML (attack18): "Mar 2029" was centred on the plot's right edge, 18 px from the
+    /// drawing's, and half of it is 27 px. No date label may run past the drawing's edge, for
+    /// long and short ranges and whichever day the axis ends on.
+    #[test]
+    fn no_date_label_runs_past_the_drawings_edge() {
+        let start = NaiveDate::from_ymd_opt(2026, 1, 1).unwrap();
+        let mut checked = 0;
+        for days in (20..130).step_by(9).chain((380..1200).step_by(23)) {
+            let end = start + Duration::days(days);
+            let line: Vec<(NaiveDate, f64)> = (0..=days)
+                .map(|i| (start + Duration::days(i), 100.0 - i as f64 * 0.01))
+                .collect();
+            let chart = Chart::Line(LineChart {
+                title: "Weight".into(),
+                y_label: "kg".into(),
+                lines: vec![LineSeries {
+                    label: "Trend".into(),
+                    points: line,
+                    style: LineStyle::Solid,
+                }],
+                bands: vec![],
+                spans: vec![],
+                hlines: vec![],
+                vlines: vec![],
+                alt_text: format!("to {end}"),
+            });
+            for width in [720, 380] {
+                let svg = to_svg(&chart, width, 300);
+                for (x, size, text) in centred_texts(&svg) {
+                    let half = text_width(&text, size) / 2.0;
+                    assert!(
+                        x + half <= width as f64 && x - half >= 0.0,
+                        "{days} days, {width} px: `{text}` at {x} runs to {}",
+                        x + half
+                    );
+                    checked += 1;
+                }
+            }
+        }
+        assert!(checked > 200, "{checked}");
     }
 
     use super::*;

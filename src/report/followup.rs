@@ -17,7 +17,7 @@ use super::{ProgramView, RenderError, TableView};
 use crate::diag::Diagnostic;
 use crate::modules::ModuleResults;
 use crate::program::Format;
-use chrono::{Datelike, Months, NaiveDate};
+use chrono::{Months, NaiveDate};
 use cohortpress_metric_api::{FlagSeverity, ParticipantData, Period};
 use serde::{Deserialize, Serialize};
 
@@ -164,10 +164,9 @@ fn labs_not_read(diagnostics: &[Diagnostic]) -> Option<String> {
 /// The period before `p`: the previous calendar month when `p` is one whole month, else the
 /// same number of days just before it. `None` when it would start before the program.
 pub fn previous_period(p: Period, program_start: NaiveDate) -> Option<Period> {
-    let whole_month = p.from.day() == 1
-        && p.to.succ_opt().is_some_and(|n| n.day() == 1)
-        && p.from.month() == p.to.month();
-    let prev = if whole_month {
+    // One whole month as the reports name it (a 13-month span from January to January is
+    // not one).
+    let prev = if super::is_one_whole_month(p.from, p.to) {
         let from = p.from.checked_sub_months(Months::new(1))?;
         Period {
             from,
@@ -659,6 +658,18 @@ mod tests {
             to: d("2026-04-30"),
         };
         assert_eq!(previous_period(apr, start), None);
+        // 13 months from January to January: the same length before, not December.
+        let long = Period {
+            from: d("2027-01-01"),
+            to: d("2028-01-31"),
+        };
+        assert_eq!(
+            previous_period(long, d("2025-01-01")),
+            Some(Period {
+                from: d("2025-12-01"),
+                to: d("2026-12-31")
+            })
+        );
         let span = Period {
             from: d("2026-05-11"),
             to: d("2026-05-20"),

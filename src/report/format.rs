@@ -107,10 +107,21 @@ pub fn ceil_to(v: f64, step: f64) -> f64 {
 }
 
 /// Rewrites module text for a participant's page: a bare whole number of four or more digits
-/// followed by ` kcal` gets the locale's separator (`1150 kcal` → `1,150 kcal`), and an ISO
+/// followed by ` kcal`, or counting days, weigh-ins, rows, readings, minutes or weeks, gets the
+/// locale's separator (`1150 kcal` → `1,150 kcal`, `1096 logged days` → `1,096 logged days`), and an ISO
 /// date (`2026-08-01`) becomes the report's date format (`1 Aug 2026`). Years and other numbers
 /// are left alone.
 pub fn tidy_message(text: &str) -> String {
+    // Words after which a number counts things, never a year.
+    const COUNTED_NOUNS: [&str; 7] = [
+        "days",
+        "logged",
+        "weigh-ins",
+        "rows",
+        "readings",
+        "minutes",
+        "weeks",
+    ];
     let chars: Vec<char> = text.chars().collect();
     let mut out = String::with_capacity(text.len() + 8);
     // After "interval 1920", the " to 2199" that closes the range is energy too.
@@ -138,8 +149,17 @@ pub fn tidy_message(text: &str) -> String {
             let rest: String = chars[j..(j + 5).min(chars.len())].iter().collect();
             let is_energy = rest == " kcal" || out.ends_with("interval ") || range_partner;
             range_partner = out.ends_with("interval ");
+            // A count of days, weigh-ins or rows is never a year: "over 1096 logged days" (a
+            // three-year log) beside "about 1,096 kcal a day" read as two kinds of number.
+            let next_word: String = chars[j..]
+                .iter()
+                .skip(1)
+                .take_while(|c| c.is_alphanumeric() || **c == '-')
+                .collect();
+            let is_count =
+                chars.get(j) == Some(&' ') && COUNTED_NOUNS.contains(&next_word.as_str());
             if j - i >= 4
-                && is_energy
+                && (is_energy || is_count)
                 && let Ok(n) = digits.parse::<i64>()
             {
                 out.push_str(&group_thousands(n));
@@ -295,6 +315,20 @@ mod tests {
             "most recently 1 Aug 2026 to 21 Aug 2026: 950 kcal, 1.5 kg"
         );
         assert_eq!(tidy_message("HbA1c 6.8 %"), "HbA1c 6.8 %");
+        // A three-year food log (attack18): the count beside the energy, grouped alike.
+        assert_eq!(
+            tidy_message(
+                "Logged intake averaged about 1096 kcal a day over 1096 logged days and was \
+                 below 1200 kcal a day on 837 of them; 12000 rows, 1500 weigh-ins"
+            ),
+            "Logged intake averaged about 1,096 kcal a day over 1,096 logged days and was \
+             below 1,200 kcal a day on 837 of them; 12,000 rows, 1,500 weigh-ins"
+        );
+        // Years stay as written, also before a word.
+        assert_eq!(
+            tidy_message("in 2026 the days were 12, as in 2025; 999 days"),
+            "in 2026 the days were 12, as in 2025; 999 days"
+        );
         assert_eq!(
             tidy_message("about 2060 kcal/d (95 % interval 1920 to 2199). Archer et al. 2013"),
             "about 2,060 kcal/d (95 % interval 1,920 to 2,199). Archer et al. 2013"

@@ -86,18 +86,23 @@ pub struct Scope<'a> {
     pub as_of: NaiveDate,
 }
 
-/// A period in words, as every report names it: `September 2026` for a whole month, else
-/// `1 Sep 2026 – 15 Sep 2026`.
+/// A period in words, as every report names it: `September 2026` for one whole month, else
+/// `1 Sep 2026 – 15 Sep 2026` (also for several whole months: `--from 2026-03-01 --to
+/// 2026-10-31` was labelled `March 2026` on every page, the habits figures included).
 pub fn period_label(from: NaiveDate, to: NaiveDate) -> String {
-    let whole_month = from.format("%d").to_string() == "01"
-        && to
-            .succ_opt()
-            .is_some_and(|n| n.format("%d").to_string() == "01");
-    if whole_month {
+    if is_one_whole_month(from, to) {
         format::month(from)
     } else {
         format!("{} – {}", format::date(from), format::date(to))
     }
+}
+
+/// Whether `from`–`to` is exactly one calendar month (its first to its last day).
+pub fn is_one_whole_month(from: NaiveDate, to: NaiveDate) -> bool {
+    use chrono::Datelike;
+    from.day() == 1
+        && to.succ_opt().is_some_and(|n| n.day() == 1)
+        && (from.year(), from.month()) == (to.year(), to.month())
 }
 
 /// Program and period, as shown on every report.
@@ -551,6 +556,37 @@ mod tests {
         // Not an SVG drawing (no title): left as it is.
         assert_eq!(svg_shell("<svg></svg>"), "<svg></svg>");
         assert_eq!(svg_shell("<p>x</title></p>"), "<p>x</title></p>");
+    }
+
+    #[test]
+    fn a_period_is_named_as_a_month_only_when_it_is_one_whole_month() {
+        let d = |s: &str| s.parse::<NaiveDate>().unwrap();
+        assert_eq!(
+            period_label(d("2026-09-01"), d("2026-09-30")),
+            "September 2026"
+        );
+        assert_eq!(
+            period_label(d("2024-02-01"), d("2024-02-29")),
+            "February 2024"
+        );
+        // Several whole months: every page and the habits figures said "March 2026".
+        assert_eq!(
+            period_label(d("2026-03-01"), d("2026-10-31")),
+            "1 Mar 2026 – 31 Oct 2026"
+        );
+        // Three years, and a span of 13 months that starts and ends in January.
+        assert_eq!(
+            period_label(d("2026-01-01"), d("2028-12-31")),
+            "1 Jan 2026 – 31 Dec 2028"
+        );
+        assert_eq!(
+            period_label(d("2026-01-01"), d("2027-01-31")),
+            "1 Jan 2026 – 31 Jan 2027"
+        );
+        assert_eq!(
+            period_label(d("2026-09-02"), d("2026-09-30")),
+            "2 Sep 2026 – 30 Sep 2026"
+        );
     }
 
     #[test]

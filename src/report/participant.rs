@@ -234,7 +234,26 @@ pub fn build(
         }
         u => u,
     };
-    let (energy_view, energy_chart) = match &v.energy {
+    // Weeks are named by their Monday, and a participant's first week starts before they
+    // enrolled: every sample report's tables read "Week of 30 Mar 2026" in a program that
+    // began on 1 April (and "21 Dec 2026" for one that began on Saturday 26 December). The
+    // tables and charts name such a week by its first day in the participant's span instead.
+    let first_day = p.enrolled.max(plan.program.info.start);
+    let energy_clipped = v.energy.as_ref().map(|e| {
+        let mut e = e.clone();
+        for w in &mut e.weekly_energy {
+            w.week_start = week_named_from(w.week_start, first_day);
+        }
+        e
+    });
+    let adherence_clipped = v.adherence.as_ref().map(|a| {
+        let mut a = a.clone();
+        for w in &mut a.weekly {
+            w.week_start = week_named_from(w.week_start, first_day);
+        }
+        a
+    });
+    let (energy_view, energy_chart) = match &energy_clipped {
         Some(e) => {
             let window_days = plan
                 .modules
@@ -271,7 +290,7 @@ pub fn build(
         }
         None => (None, None),
     };
-    let (adherence_view, activity_chart) = match &v.adherence {
+    let (adherence_view, activity_chart) = match &adherence_clipped {
         Some(a) => {
             let (view, chart) = adherence_section(
                 a,
@@ -881,6 +900,38 @@ fn bmi_range_words(category: Option<BmiCategory>) -> String {
     format!("; your BMI is in the range {range}, which the WHO calls “{name}”")
 }
 
+/// The day a week starting on `monday` is named by: its first day from `first_day` on (the
+/// week `first_day` falls in starts on it), else its Monday.
+fn week_named_from(monday: NaiveDate, first_day: NaiveDate) -> NaiveDate {
+    if monday < first_day && first_day < monday + chrono::Duration::days(7) {
+        first_day
+    } else {
+        monday
+    }
+}
+
+/// Widest 95 % band of the weight trend a report shows, as a share of the trend weight either
+/// side: 5 % of body weight is the change weight programs count as clinically meaningful
+/// (common practice; the default target here). A band wider than that says nothing about
+/// which way the weight went, and its ends are weights a body cannot reach between weigh-ins
+/// (the trend of clinic weigh-ins 28 days apart, about 100 kg, had a band of 67.6–130.9 kg).
+const TREND_BAND_MAX_HALF_WIDTH: f64 = 0.05;
+
+/// The trend's 95 % band on a day as a report shows it, in kg, or `None` where it is left out:
+/// wider than `TREND_BAND_MAX_HALF_WIDTH` either side, not finite, not around its point, or of
+/// no width at all (the smoother's variance lost to rounding, as after the first weigh-in of
+/// clinic weigh-ins a month apart: a trend is never known exactly). A guard on what leaves the
+/// estimator; the tidy metrics keep the band as the trend module gives it.
+fn shown_trend_band(value: f64, lower: Option<f64>, upper: Option<f64>) -> Option<(f64, f64)> {
+    let (l, u) = (lower?, upper?);
+    let ok = [value, l, u].iter().all(|x| x.is_finite())
+        && l <= value
+        && value <= u
+        && u - l > 1e-6
+        && (u - l) / 2.0 <= TREND_BAND_MAX_HALF_WIDTH * value;
+    ok.then_some((l, u))
+}
+
 fn weight_chart(
     v: &BuiltinViews,
     target_kg: Option<f64>,
@@ -908,6 +959,8 @@ fn weight_chart(
         .trend
         .as_ref()
         .is_some_and(|t| !t.weight_trend.points.is_empty());
+    // Whether the band is left out on some day (see `shown_trend_band`): the description says so.
+    let mut band_left_out = false;
     if let Some(t) = &v.trend {
         // Dots of one day that print alike (to 0.1 of the unit, the resolution a scale shows
         // and well under a dot's size at any chart height) are drawn once: a scale's raw log
@@ -926,12 +979,17 @@ fn weight_chart(
         });
         let s = &t.weight_trend;
         if has_trend {
+            // A day whose band is not shown is a break in it (non-finite bounds), never bridged.
             bands.push(BandSeries {
                 label: "Trend 95 % band".into(),
                 points: s
                     .points
                     .iter()
-                    .filter_map(|p| Some((p.date, conv(p.lower?), conv(p.upper?))))
+                    .filter(|p| p.lower.is_some() && p.upper.is_some())
+                    .map(|p| match shown_trend_band(p.value, p.lower, p.upper) {
+                        Some((l, u)) => (p.date, conv(l), conv(u)),
+                        None => (p.date, f64::NAN, f64::NAN),
+                    })
                     .collect(),
             });
             lines.push(LineSeries {
@@ -949,9 +1007,15 @@ fn weight_chart(
                     fmt::date(p.date),
                     fmt::fixed(conv(p.value), 1),
                     match (p.lower, p.upper) {
-                        (Some(l), Some(u)) => {
-                            format!("{}–{}", fmt::fixed(conv(l), 1), fmt::fixed(conv(u), 1))
-                        }
+                        (Some(_), Some(_)) => match shown_trend_band(p.value, p.lower, p.upper) {
+                            Some((l, u)) => {
+                                format!("{}–{}", fmt::fixed(conv(l), 1), fmt::fixed(conv(u), 1))
+                            }
+                            None => {
+                                band_left_out = true;
+                                "–".into()
+                            }
+                        },
                         _ => String::new(),
                     },
                 ]);
@@ -1046,6 +1110,18 @@ fn weight_chart(
                 spans.join(", and those ")
             ));
         }
+    }
+    if has_trend && let Some(t) = v.trend.as_ref() {
+        band_left_out |=
+            t.weight_trend.points.iter().any(|p| {
+                p.lower.is_some() && shown_trend_band(p.value, p.lower, p.upper).is_none()
+            });
+    }
+    if band_left_out {
+        alt.push_str(
+            " Where the weigh-ins are too few or too far apart to narrow the trend to within \
+             5 % of your weight either way, the band is left out (a dash in the table).",
+        );
     }
     if let Some(t) = v.trend.as_ref() {
         alt.push_str(&source_offsets_words(&t.source_offsets, units));
@@ -1508,13 +1584,15 @@ fn adherence_section(
                     .to_string()
             }
             ActivityUnread::Rows(n) if v == 0.0 => format!(
-                "activity could not be read ({n} row{} left out; see the notes on your data)",
+                "activity could not be read ({} row{} left out; see the notes on your data)",
+                fmt::int(*n as f64),
                 if *n == 1 { "" } else { "s" }
             ),
             ActivityUnread::Rows(n) => format!(
-                "{} (target {}); {n} activity row{} could not be read and {} not counted",
+                "{} (target {}); {} activity row{} could not be read and {} not counted",
                 fmt::fixed(v, 0),
                 fmt::fixed(target, 0),
+                fmt::int(*n as f64),
                 if *n == 1 { "" } else { "s" },
                 if *n == 1 { "is" } else { "are" }
             ),

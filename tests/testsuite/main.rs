@@ -14,6 +14,7 @@ mod harness;
 mod hostile;
 mod layering;
 mod ledger;
+mod numbers;
 mod operation;
 mod reports;
 mod sample_program;

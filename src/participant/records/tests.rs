@@ -121,6 +121,29 @@ fn decimal_comma_with_semicolon_delimiter() {
     }
 }
 
+/// Over a thousand rows dropped are counted with the thousands separator, as every other count
+/// of rows is (attack18: a three-year activity log of 20-hour days read "1096 rows dropped" in
+/// `check`, the log and the participant's report).
+#[test]
+fn a_thousand_rows_dropped_are_counted_with_a_separator() {
+    let mut csv = String::from("timestamp,weight_kg\n");
+    for i in 0..1096 {
+        csv.push_str(&format!("{},84.2\n", 1_777_622_400_000u64 + i * 86_400_000));
+    }
+    let (w, diags) = read(&csv, &window());
+    assert_eq!(w.as_deref().map(<[WeighIn]>::len), Some(0));
+    let errors: Vec<_> = diags
+        .iter()
+        .filter(|d| d.severity == Severity::Error)
+        .collect();
+    assert_eq!(errors.len(), 1);
+    assert_eq!(
+        errors[0].message,
+        "no row of the file could be read: 1,096 rows dropped, each named in a warning; the \
+         file is not used"
+    );
+}
+
 /// A file none of whose rows reads gives nothing: an error on the file (exit code 4), besides
 /// each row's warning; one row read is enough for warnings only.
 #[test]

@@ -1,0 +1,188 @@
+//! Numbers a reader sees, under extreme but valid inputs (attack18): each must be physiologically
+//! possible, finite, in the right unit, with its interval around its point, and dated within the
+//! program.
+
+use crate::harness::ProgramTest;
+
+/// Writes participant `id` of `dir` (a woman born 1966, 170 cm, enrolled 1 April 2026) with the
+/// weigh-ins given (date, kg, source).
+fn person(dir: &std::path::Path, id: &str, weights: &[(String, f64, &str)]) {
+    let p = dir.join("participants").join(id);
+    std::fs::create_dir_all(&p).unwrap();
+    std::fs::write(
+        p.join("profile.yaml"),
+        format!(
+            "id: {id}\nsex: female\nbirth_date: 1966-05-20\nheight: 170 cm\nenrolled: 2026-04-01\ngroups: {{ site: Kiln Row }}\n"
+        ),
+    )
+    .unwrap();
+    let mut csv = String::from("date,weight,unit,source\n");
+    for (d, w, s) in weights {
+        csv.push_str(&format!("{d},{w:.1},kg,{s}\n"));
+    }
+    std::fs::write(p.join("weights.csv"), csv).unwrap();
+}
+
+/// The rows of the weight chart's data table: (week ending, trend, band cell).
+fn trend_rows(html: &str) -> Vec<(String, f64, String)> {
+    let start = html
+        .find("<th scope=\"col\">Week ending</th>")
+        .expect("trend table");
+    let body = &html[start..];
+    let body = &body[..body.find("</tbody>").unwrap()];
+    body.split("<tr><td>")
+        .skip(1)
+        .map(|row| {
+            let cells: Vec<&str> = row
+                .split("</td>")
+                .map(|c| c.trim_start_matches("<td>"))
+                .collect();
+            (
+                cells[0].to_string(),
+                cells[1].parse().unwrap(),
+                cells[2].to_string(),
+            )
+        })
+        .collect()
+}
+
+/// The fixture program with CL-01, a woman weighed only at the clinic, every 28 days, about 100
+/// kg, run from 1 April to 30 September 2026 (six whole months), HTML only.
+fn clinic_only_run() -> ProgramTest {
+    let t = ProgramTest::fixture("report-small");
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    let clinic: Vec<(String, f64, &str)> = (0..7)
+        .map(|i| {
+            let d = start + chrono::Duration::days(28 * i);
+            let zigzag = if i % 2 == 1 { 0.3 } else { -0.3 };
+            (d.to_string(), 100.0 - 1.4 * i as f64 + zigzag, "clinic")
+        })
+        .collect();
+    person(&t.dir, "CL-01", &clinic);
+    let out = t.run(&[
+        "run",
+        "{dir}",
+        "--from",
+        "2026-04-01",
+        "--to",
+        "2026-09-30",
+        "--as-of",
+        "2026-10-01",
+        "--formats",
+        "html",
+    ]);
+    assert!(out.code <= 1, "{out:?}");
+    t
+}
+
+fn page(t: &ProgramTest, rel: &str) -> String {
+    std::fs::read_to_string(t.dir.join("reports").join(rel)).expect(rel)
+}
+
+/// Between CL-01's first two weigh-ins the trend's 95 % band read "6.8–191.3 kg" in the report's
+/// table (and was drawn so): weights no body reaches in four weeks. Where the band is wider
+/// than 5 % of the weight either way (or of no width at all: the smoother's variance lost to
+/// rounding), the report leaves it out and says so; the tidy metrics keep the module's band.
+#[test]
+fn a_trend_band_no_body_could_span_is_left_out_of_the_report() {
+    let t = clinic_only_run();
+    let html = page(&t, "participants/CL-01.html");
+    let rows = trend_rows(&html);
+    assert!(rows.len() >= 20, "{rows:?}");
+    let mut left_out = 0;
+    for (week, trend, band) in &rows {
+        assert!((85.0..=101.0).contains(trend), "{week}: {trend}");
+        if band == "–" {
+            left_out += 1;
+            continue;
+        }
+        let (l, u) = band
+            .split_once('–')
+            .unwrap_or_else(|| panic!("{week}: {band}"));
+        let (l, u): (f64, f64) = (l.parse().unwrap(), u.parse().unwrap());
+        assert!(l <= *trend && *trend <= u, "{week}: {trend} outside {band}");
+        assert!(
+            (u - l) / 2.0 <= 0.05 * trend + 0.05,
+            "{week}: {band} around {trend}"
+        );
+    }
+    // The first weeks, before the second weigh-in, are the ones left out (here 4).
+    assert!((1..=6).contains(&left_out), "{rows:?}");
+    assert_eq!(rows[0].2, "–", "{rows:?}");
+    assert!(
+        html.contains("the band is left out (a dash in the table)"),
+        "the description says why"
+    );
+    // The tidy metrics keep the trend module's band as it is.
+    let weekly = page(&t, "metrics/weekly.csv");
+    let widest = weekly
+        .lines()
+        .filter(|l| l.starts_with("CL-01,trend,weight_trend_weekly,"))
+        .map(|l| {
+            let f: Vec<f64> = l.split(',').skip(5).map(|x| x.parse().unwrap()).collect();
+            f[2] - f[1]
+        })
+        .fold(0.0, f64::max);
+    assert!(widest > 20.0, "{widest}");
+    // A participant who weighs in often keeps the band on every row.
+    let sg = page(&t, "participants/SG-007.html");
+    assert!(trend_rows(&sg).iter().all(|r| r.2 != "–"));
+    assert!(!sg.contains("the band is left out"));
+}
+
+/// `--from 2026-04-01 --to 2026-09-30` (six whole months): every page was titled "April 2026",
+/// the habits read "Days with a weigh-in per week, April 2026", and the group report's month
+/// over month row said "April 2026". A period is named as a month only when it is one.
+#[test]
+fn a_period_of_several_whole_months_is_not_named_as_its_first_month() {
+    let t = clinic_only_run();
+    for rel in [
+        "participants/CL-01.html",
+        "participants/SG-007.html",
+        "group/program.html",
+    ] {
+        let html = page(&t, rel);
+        assert!(html.contains("1 Apr 2026 – 30 Sep 2026"), "{rel}");
+        assert!(!html.contains("April 2026"), "{rel} says April 2026");
+    }
+}
+
+/// Every `D Mon YYYY` date a page prints.
+fn dates_in(html: &str) -> Vec<chrono::NaiveDate> {
+    let words: Vec<&str> = html
+        .split(|c: char| !c.is_ascii_alphanumeric())
+        .filter(|w| !w.is_empty())
+        .collect();
+    words
+        .windows(3)
+        .filter_map(|w| {
+            chrono::NaiveDate::parse_from_str(&format!("{} {} {}", w[0], w[1], w[2]), "%d %b %Y")
+                .ok()
+        })
+        .collect()
+}
+
+/// Weeks are named by their Monday, so the program's first week (1 April 2026 is a Wednesday)
+/// was "Week of 30 Mar 2026" in both weekly tables of every participant report, a date before
+/// the program: now "1 Apr 2026", the week's first day in the participant's span. No page
+/// prints a date before the program's start.
+#[test]
+fn no_week_is_named_by_a_day_before_the_program() {
+    let t = clinic_only_run();
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    for rel in ["participants/CL-01.html", "participants/SG-007.html"] {
+        let html = page(&t, rel);
+        let dates = dates_in(&html);
+        assert!(dates.len() > 40, "{rel}: {}", dates.len());
+        assert!(
+            dates.iter().all(|d| *d >= start),
+            "{rel}: {:?}",
+            dates.iter().filter(|d| **d < start).collect::<Vec<_>>()
+        );
+        assert_eq!(
+            html.matches("<tr><td>1 Apr 2026</td>").count(),
+            2,
+            "{rel}: the first week of both weekly tables"
+        );
+    }
+}
