@@ -914,13 +914,13 @@ fn week_named_from(monday: NaiveDate, first_day: NaiveDate) -> NaiveDate {
 /// side: 5 % of body weight is the change weight programs count as clinically meaningful
 /// (common practice; the default target here). A band wider than that says nothing about
 /// which way the weight went, and its ends are weights a body cannot reach between weigh-ins
-/// (the trend of clinic weigh-ins 28 days apart, about 100 kg, had a band of 67.6–130.9 kg).
+/// (the trend of clinic weigh-ins 28 days apart, about 100 kg, had a band of 67.6–130.9 kg
+/// before the trend module's slope prior was mended; the guard stays for any band that slips).
 const TREND_BAND_MAX_HALF_WIDTH: f64 = 0.05;
 
 /// The trend's 95 % band on a day as a report shows it, in kg, or `None` where it is left out:
 /// wider than `TREND_BAND_MAX_HALF_WIDTH` either side, not finite, not around its point, or of
-/// no width at all (the smoother's variance lost to rounding, as after the first weigh-in of
-/// clinic weigh-ins a month apart: a trend is never known exactly). A guard on what leaves the
+/// no width at all (a trend is never known exactly). A guard on what leaves the
 /// estimator; the tidy metrics keep the band as the trend module gives it.
 fn shown_trend_band(value: f64, lower: Option<f64>, upper: Option<f64>) -> Option<(f64, f64)> {
     let (l, u) = (lower?, upper?);
@@ -2439,5 +2439,33 @@ mod activity_unread_tests {
             "implausible weight; the row is dropped",
         );
         assert_eq!(shown(0.0, &[dup, other]), "0 (target 150)");
+    }
+}
+
+#[cfg(test)]
+mod trend_band_tests {
+    use super::shown_trend_band;
+
+    /// The guard on the band a report shows: kept when it is a band around its point, left out
+    /// when wider than 5 % of the weight either way, of no width, not finite or not around its
+    /// point (each of which the trend module should never give; the guard keeps a reader from
+    /// seeing it if it does).
+    #[test]
+    fn a_band_no_body_could_span_or_of_no_width_is_left_out() {
+        assert_eq!(
+            shown_trend_band(99.0, Some(98.5), Some(99.6)),
+            Some((98.5, 99.6))
+        );
+        // 5 % of 100 kg either way is kept; more is not.
+        assert_eq!(
+            shown_trend_band(100.0, Some(95.0), Some(105.0)),
+            Some((95.0, 105.0))
+        );
+        assert_eq!(shown_trend_band(99.0, Some(6.8), Some(191.3)), None);
+        assert_eq!(shown_trend_band(100.0, Some(94.0), Some(106.0)), None);
+        assert_eq!(shown_trend_band(99.6, Some(99.6), Some(99.6)), None);
+        assert_eq!(shown_trend_band(99.0, Some(99.2), Some(99.9)), None);
+        assert_eq!(shown_trend_band(99.0, Some(f64::NAN), Some(99.9)), None);
+        assert_eq!(shown_trend_band(99.0, None, Some(99.9)), None);
     }
 }

@@ -35,8 +35,7 @@ use cohortpress_metric_api::{
     ParticipantData, Point, Series, SettingKind, SettingSpec, Table,
 };
 use llt::{
-    DIFFUSE_KAPPA, OutlierScreen, StatePrior, StepStatus, Z_95, estimate_params, kalman_filter,
-    rts_smoother,
+    OutlierScreen, StatePrior, StepStatus, Z_95, estimate_params, kalman_filter, rts_smoother,
 };
 use plateau::{PlateauSettings, WindowKind, classify_window, find_periods};
 use view::{
@@ -406,7 +405,7 @@ fn source_offsets(
         &grid_t,
         &grid_y,
         fit.params,
-        StatePrior::diffuse(home[0].1, DIFFUSE_KAPPA),
+        StatePrior::weight_start(home[0].1),
         Some(OutlierScreen { z: outlier_z }),
     ));
     others
@@ -728,7 +727,7 @@ fn tissue_trend(
         &adj,
         Some(&control),
         fit.params,
-        StatePrior::diffuse(start, DIFFUSE_KAPPA),
+        StatePrior::weight_start(start),
         Some(OutlierScreen { z: outlier_z }),
     )))
 }
@@ -757,7 +756,7 @@ fn fit_daily(
             &grid_t,
             &grid_y,
             fit.params,
-            StatePrior::diffuse(days[0].1, DIFFUSE_KAPPA),
+            StatePrior::weight_start(days[0].1),
             Some(OutlierScreen { z }),
         );
         (fit, run)

@@ -22,13 +22,26 @@ pub type Vec2 = [f64; 2];
 /// A 2×2 matrix, row major.
 pub type Mat2 = [[f64; 2]; 2];
 
-/// Prior variance used for a diffuse start in the module (kg² and (kg/d)²).
+/// Prior variance of the level at the first step in the module (kg²).
 ///
 /// # Remarks
-/// 10⁶ (a prior SD of 1000 kg and 1000 kg/d) is diffuse for body weights while keeping the
-/// cancellation in the smoother's first steps far below the precision we report. The
-/// q = 0 OLS check uses 10⁸; [`StatePrior::diffuse`] takes either.
+/// 10⁶ (a prior SD of 1000 kg) is diffuse for body weights; the filter's level update needs no
+/// subtraction ([`kalman_filter`]), so it costs no precision. The slope's prior is
+/// [`SLOPE_PRIOR_VAR`]: as diffuse a slope cost the smoother all its digits. The q = 0 OLS check
+/// uses 10⁸ for both; [`StatePrior::diffuse`] takes either.
 pub const DIFFUSE_KAPPA: f64 = 1e6;
+
+/// Prior variance of the slope at the first step in the module, (kg/d)²: an SD of 1 kg a day.
+///
+/// # Remarks
+/// A sustained change of 1 kg a day is beyond what energy balance allows (total starvation
+/// costs an adult about 0.3–0.5 kg of tissue a day after the first days; Hall 2008, *Int J
+/// Obes* 32:573, from memory), so this prior is still non-informative for any real record,
+/// which pins the slope to ±0.1 kg/d within two weigh-ins a week apart. A slope variance of
+/// [`DIFFUSE_KAPPA`] instead (1000 kg/d) made the smoother's first steps subtract numbers of
+/// 10⁹ kg² to leave a variance of about 0.1: the band of the first week came out of no width
+/// (clamped at zero), and between two clinic weigh-ins four weeks apart as 6.8–191.3 kg.
+pub const SLOPE_PRIOR_VAR: f64 = 1.0;
 
 /// Number of leading observations treated as the diffuse part of the likelihood (the state has
 /// two elements, so the first two innovations carry the prior, not the data's fit).
@@ -73,6 +86,15 @@ pub struct StatePrior {
 }
 
 impl StatePrior {
+    /// The prior of a weight record: a diffuse level ([`DIFFUSE_KAPPA`]) at `level` and a slope
+    /// of 0 with variance [`SLOPE_PRIOR_VAR`].
+    pub fn weight_start(level: f64) -> Self {
+        StatePrior {
+            mean: [level, 0.0],
+            cov: [[DIFFUSE_KAPPA, 0.0], [0.0, SLOPE_PRIOR_VAR]],
+        }
+    }
+
     /// A diffuse prior: mean `[level, 0]`, covariance `kappa·I`.
     pub fn diffuse(level: f64, kappa: f64) -> Self {
         StatePrior {
@@ -566,7 +588,7 @@ fn profile(
     z: f64,
 ) -> (f64, f64) {
     let s0 = sigma0 * sigma0;
-    let prior = StatePrior::diffuse(first_value(values), DIFFUSE_KAPPA);
+    let prior = StatePrior::weight_start(first_value(values));
     let sums = filter_core(
         times,
         values,
@@ -734,6 +756,43 @@ mod tests {
         assert!((last.filtered_mean[0] - 88.700).abs() < 1e-5);
         assert!((last.filtered_mean[1] + 0.044_285_7).abs() < 1e-5);
         assert!((last.filtered_cov[1][1].sqrt() - 0.022_587_7).abs() < 1e-5);
+    }
+
+    /// Weigh-ins 28 days apart on a daily grid (a person weighed only at the clinic): with
+    /// the record's prior (slope SD 1 kg/d) every smoothed level has a real, bounded variance.
+    /// With a slope prior of 1000 kg/d the first steps subtracted variances of about 10⁹ kg²
+    /// and the report showed 6.8–191.3 kg between the first two weigh-ins, and a band of no
+    /// width on the first day.
+    #[test]
+    fn sparse_weigh_ins_give_every_day_a_real_bounded_band() {
+        let n = 169;
+        let times: Vec<f64> = (0..n).map(|i| i as f64).collect();
+        let values: Vec<Option<f64>> = (0..n)
+            .map(|i| {
+                (i % 28 == 0)
+                    .then(|| 100.0 - 0.05 * i as f64 + if i % 56 == 0 { 0.3 } else { -0.3 })
+            })
+            .collect();
+        let s2 = DEFAULT_SIGMA_EPS_KG * DEFAULT_SIGMA_EPS_KG;
+        let params = LltParams {
+            sigma2_eps: s2,
+            q: DEFAULT_SNR * s2,
+        };
+        let sm = rts_smoother(kalman_filter(
+            &times,
+            &values,
+            params,
+            StatePrior::weight_start(100.3),
+            None,
+        ));
+        for (t, c) in sm.cov.iter().enumerate() {
+            let sd = c[0][0].sqrt();
+            // Between σ_ε / √7 (all seven weigh-ins) and 2 kg.
+            assert!(sd > 0.2 && sd < 2.0, "day {t}: level SD {sd}");
+        }
+        // The first day's band is about as wide as a weigh-in day's in the middle.
+        let (first, mid) = (sm.cov[0][0][0].sqrt(), sm.cov[84][0][0].sqrt());
+        assert!(first > 0.8 * mid, "{first} vs {mid}");
     }
 
     #[test]
