@@ -1246,3 +1246,62 @@ fn a_run_that_ends_with_warnings_says_how_many_and_why_in_its_log() {
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(!r.stderr.contains("done in"), "{}", r.stderr);
 }
+
+#[test]
+fn a_debug_log_holds_cohortpress_lines_and_no_report_text() {
+    // `COHORTPRESS_LOG=debug` (the README's "for more", and what the panic message asks for)
+    // also turned on the template engine's and the HTML parser's debug lines: every report's
+    // text went to the log, participants' names and weights with it, about 2,000 lines per
+    // participant. The level is now cohortpress's own; libraries stay at warnings.
+    let t = ProgramTest::demo(2);
+    let profile = std::fs::read_to_string(t.dir.join("participants/SG-001/profile.yaml")).unwrap();
+    let name = profile
+        .lines()
+        .find_map(|l| l.strip_prefix("name: "))
+        .unwrap()
+        .trim_matches('"')
+        .to_string();
+    let r = t.run_env(
+        &["run", "{dir}", "--as-of", AS_OF, "--out", &out(&t, "r")],
+        &[("COHORTPRESS_LOG", "debug")],
+    );
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    // Debug lines write text escaped (`\u{141}ucja`).
+    for written in [name.clone(), name.escape_default().to_string()] {
+        assert!(!r.stderr.contains(&written), "{written} is in the log");
+    }
+    assert!(
+        !r.stderr.contains("Current weight"),
+        "{}",
+        &r.stderr[..2000.min(r.stderr.len())]
+    );
+    // cohortpress's own debug lines are still there.
+    assert!(
+        r.stderr
+            .lines()
+            .any(|l| l.contains("DEBUG") && l.contains("output files")),
+        "{}",
+        r.stderr
+    );
+    assert!(
+        r.stderr.lines().count() < 20,
+        "{}",
+        r.stderr.lines().count()
+    );
+    // A library named on its own is still logged as asked.
+    let r = t.run_env(
+        &[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--out",
+            &out(&t, "s"),
+            "--formats",
+            "html",
+        ],
+        &[("COHORTPRESS_LOG", "info,handlebars=debug")],
+    );
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(r.stderr.contains("Rendering"), "{}", r.stderr);
+}
