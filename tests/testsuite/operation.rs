@@ -1305,3 +1305,65 @@ fn a_debug_log_holds_cohortpress_lines_and_no_report_text() {
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(r.stderr.contains("Rendering"), "{}", r.stderr);
 }
+
+#[cfg(unix)]
+#[test]
+fn a_killed_run_into_another_months_folder_is_cleared_and_named_by_the_next_run() {
+    // With a folder per month (the README's second crontab line), only a later run into the
+    // same month's folder removed what a killed run left: June's run killed half way left
+    // `.2026-06.staging` (half of June's identified reports) for good, and July's run said
+    // nothing, so nothing in the log told that June had no output.
+    let t = ProgramTest::demo(60);
+    let (june, july, august) = (out(&t, "2026-06"), out(&t, "2026-07"), out(&t, "2026-08"));
+    let june_shown = std::fs::canonicalize(t.dir.parent().unwrap())
+        .unwrap()
+        .join("2026-06")
+        .display()
+        .to_string();
+    // A run into June still writing: its staging folder is left alone.
+    let mut running = spawn_run(&t, &june, &["--jobs", "1"]);
+    wait_for_files(&mut running, &staging_of(&june).join("participants"), 4);
+    let r = run(&t, &july, &["--only", "SG-001", "--formats", "html"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        !r.stderr.contains("stopped before it finished"),
+        "{}",
+        r.stderr
+    );
+    assert!(count_files(&staging_of(&june)) >= 4);
+    // Killed (SIGKILL): June has no output, and its staging folder is what is left of it.
+    running.kill().unwrap();
+    running.wait().unwrap();
+    assert!(!Path::new(&june).exists());
+    let left = count_files(&staging_of(&june));
+    assert!(left >= 5, "{left}");
+    let r = run(&t, &august, &["--only", "SG-001", "--formats", "html"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        !staging_of(&june).exists(),
+        "June's staging folder was left"
+    );
+    let said = r
+        .stderr
+        .lines()
+        .find(|l| l.contains("stopped before it finished"))
+        .unwrap_or_else(|| panic!("{}", r.stderr));
+    assert!(said.contains("WARN"), "{said}");
+    assert!(
+        said.contains(&format!(
+            "a run into {june_shown} was stopped before it finished"
+        )),
+        "{said}"
+    );
+    // The marker is not counted: the files a reader would find.
+    assert!(said.contains(&format!("({} files,", left - 1)), "{said}");
+    assert!(
+        said.contains(&format!(
+            "{june_shown} was never written: run that period again"
+        )),
+        "{said}"
+    );
+    // July's output and the August run's own are complete.
+    assert!(Path::new(&july).join("manifest.json").is_file());
+    assert!(Path::new(&august).join("manifest.json").is_file());
+}
