@@ -1367,3 +1367,51 @@ fn a_killed_run_into_another_months_folder_is_cleared_and_named_by_the_next_run(
     assert!(Path::new(&july).join("manifest.json").is_file());
     assert!(Path::new(&august).join("manifest.json").is_file());
 }
+
+#[test]
+fn a_run_with_participant_warnings_says_whose_files_in_its_log() {
+    // A weights file cut short by a crashed sync (its end zero-filled) ended the run with exit
+    // code 1 and a last line "2 warnings", and nothing in the log said whose file or what: an
+    // administrator had to open metrics/data-quality.csv to learn it.
+    let t = ProgramTest::demo(3);
+    let weights = t.dir.join("participants/SG-002/weights.csv");
+    let mut bytes = std::fs::read(&weights).unwrap();
+    let lines = bytes.iter().filter(|&&b| b == b'\n').count();
+    bytes.extend_from_slice(&[0u8; 40]);
+    std::fs::write(&weights, bytes).unwrap();
+    let r = run(
+        &t,
+        &out(&t, "r"),
+        &["--log-format", "json", "--formats", "html", "--quiet"],
+    );
+    assert_eq!(r.code, cohortpress::exit_code::WARNINGS, "{}", r.stderr);
+    let lines_logged = json_lines("warnings", &r.stderr);
+    let said = lines_logged
+        .iter()
+        .find(|v| {
+            v["fields"]["message"]
+                .as_str()
+                .is_some_and(|m| m.contains("input warning"))
+        })
+        .unwrap_or_else(|| panic!("{}", r.stderr));
+    assert_eq!(said["level"], "WARN", "{said}");
+    let message = said["fields"]["message"].as_str().unwrap();
+    assert!(
+        message.starts_with(
+            "1 input warning in the files of 1 participant, each listed in \
+             metrics/data-quality.csv (and by `cohortpress check`): SG-002: weights.csv 1 \
+             (line "
+        ),
+        "{message}"
+    );
+    assert!(
+        message.contains(&format!(
+            "line {}: the file ends with 40 zero bytes, which are not read",
+            lines + 1
+        )),
+        "{message}"
+    );
+    // The last line still ends the log, with the count.
+    let done = lines_logged.last().unwrap();
+    assert_eq!(done["fields"]["warnings"], 1, "{done}");
+}
