@@ -15,7 +15,8 @@
 //! resolved before any of this is decided, and the lock is taken on the resolved path, so two
 //! names for one folder share one lock. A partial run (`--only`, `--shard`) never replaces a
 //! complete output. Every file and folder is fsync'd before the swap, and a staging folder left
-//! by a failed run is removed when the [`Staging`] value is dropped.
+//! by a failed run is removed when the [`Staging`] value is dropped; one left by a killed run is
+//! removed by the next run into the same folder or into any other folder beside it.
 
 use serde::Serialize;
 use std::fs::{self, File};
@@ -753,6 +754,7 @@ impl Staging {
         }
         create_dir(&dir, access)?;
         new_file(&dir.join(STAGING_MARKER), access)?;
+        clear_interrupted_siblings(&parent, &name);
         Ok(Staging {
             access,
             final_dir: out_dir,
@@ -912,6 +914,80 @@ impl Staging {
             tracing::warn!("the previous output could not be removed yet: {e}");
         }
         Ok(OutputSet { files })
+    }
+}
+
+/// Removes, with a warning, the staging folders that runs into other output folders of
+/// `parent` left when they were killed (SIGKILL, SIGTERM, a power cut): `.X.staging` holding
+/// our marker beside a `.X.lock` that no run holds. Only the next run into `X` removed such a
+/// folder, and with the README's crontab line (a folder per month) no later run writes into a
+/// month's folder again: a June run killed at 03:00 left `.2026-06.staging`, half of June's
+/// identified reports, for good, and the July run said nothing, so the log never told that
+/// June had no output. The lock is held while the folder is removed, so a run into `X` started
+/// meanwhile stops with exit code 7 rather than have its staging folder removed. Nothing here
+/// fails the run: what cannot be read or removed is left as it was, with a warning.
+fn clear_interrupted_siblings(parent: &Path, own: &std::ffi::OsStr) {
+    let Ok(entries) = fs::read_dir(parent) else {
+        return;
+    };
+    for entry in entries.flatten() {
+        let file_name = entry.file_name();
+        let Some(name) = file_name
+            .to_str()
+            .and_then(|n| n.strip_prefix('.'))
+            .and_then(|n| n.strip_suffix(".staging"))
+        else {
+            continue;
+        };
+        if name.is_empty() || std::ffi::OsStr::new(name) == own {
+            continue;
+        }
+        let dir = entry.path();
+        let lock_path = parent.join(format!(".{name}.lock"));
+        // Ours only: a real folder with the marker, beside a lock file that is a regular file.
+        let ours = entry.file_type().is_ok_and(|t| t.is_dir())
+            && fs::symlink_metadata(dir.join(STAGING_MARKER)).is_ok_and(|m| m.is_file())
+            && fs::symlink_metadata(&lock_path).is_ok_and(|m| m.is_file());
+        if !ours {
+            continue;
+        }
+        let Ok(lock) = crate::limits::open_lock_file(&lock_path) else {
+            continue;
+        };
+        // Held: that run is still writing.
+        if lock.try_lock().is_err() {
+            continue;
+        }
+        let files = walkdir::WalkDir::new(&dir)
+            .follow_links(false)
+            .into_iter()
+            .flatten()
+            .filter(|e| e.file_type().is_file() && e.file_name() != STAGING_MARKER)
+            .count();
+        let out = parent.join(name);
+        let state = if fs::symlink_metadata(&out).is_ok() {
+            format!("{} still holds the output of an earlier run", out.display())
+        } else {
+            format!(
+                "{} was never written: run that period again to have it",
+                out.display()
+            )
+        };
+        match remove_ours(&dir, STAGING_MARKER) {
+            Ok(()) => tracing::warn!(
+                "a run into {} was stopped before it finished (killed, or the machine went \
+                 down) and left {} ({files} files, not a complete output); removed it. {state}",
+                out.display(),
+                dir.display()
+            ),
+            Err(e) => tracing::warn!(
+                "a run into {} was stopped before it finished (killed, or the machine went \
+                 down) and left {} ({files} files, not a complete output), which could not be \
+                 removed ({e}); {state}",
+                out.display(),
+                dir.display()
+            ),
+        }
     }
 }
 

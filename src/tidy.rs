@@ -643,7 +643,7 @@ pub fn datapackage(
         DpField::required(
             "completer",
             "boolean",
-            "started and weighed in within the last 28 days of the period: the group report has their weight at the period's end (outcomes.change_kg and change_percent); for anyone else who started, its primary analysis (baseline carried forward) counts no change and its sensitivity analysis (last observation carried forward) counts their outcomes.change_kg",
+            "started and weighed in within the last 28 days of the period (also someone who withdrew within them: their weigh-ins up to `withdrew` count, while the group report's retention counts them as withdrawn): the group report has their weight at the period's end (outcomes.change_kg and change_percent); for anyone else who started, its primary analysis (baseline carried forward) counts no change and its sensitivity analysis (last observation carried forward) counts their outcomes.change_kg",
         ),
     ];
     for k in &columns.group_keys {

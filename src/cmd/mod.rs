@@ -147,13 +147,15 @@ fn today() -> chrono::NaiveDate {
     chrono::Local::now().date_naive()
 }
 
-/// Logs go to standard error; the level comes from `COHORTPRESS_LOG` (e.g. `debug`), else
-/// `info` (`warn` with `--quiet`).
+/// Logs go to standard error; the level comes from `COHORTPRESS_LOG` (e.g. `debug`, see
+/// [`log_directives`]), else `info` (`warn` with `--quiet`).
 fn init_logging(quiet: bool, format: LogFormat) {
     use tracing_subscriber::EnvFilter;
     let default = if quiet { "warn" } else { "info" };
-    let filter = EnvFilter::try_from_env("COHORTPRESS_LOG")
-        .unwrap_or_else(|_| EnvFilter::new(format!("{default},handlebars=warn")));
+    let filter = std::env::var("COHORTPRESS_LOG")
+        .ok()
+        .and_then(|v| EnvFilter::try_new(log_directives(&v)?).ok())
+        .unwrap_or_else(|| EnvFilter::new(format!("{default},handlebars=warn")));
     let builder = tracing_subscriber::fmt()
         .with_env_filter(filter)
         .with_writer(std::io::stderr)
@@ -169,6 +171,35 @@ fn init_logging(quiet: bool, format: LogFormat) {
             .json()
             .try_init(),
     };
+}
+
+/// `COHORTPRESS_LOG` as filter directives: a bare level (`debug`, `trace`, `info`) is
+/// cohortpress's own (its crates' targets all start with `cohortpress`), and every library
+/// stays at warnings. As given, `debug` also turned on the template engine's and the HTML
+/// parser's debug lines, which copy each report's text into the log: 26,000 lines for 13
+/// participants, with their names and weights, in a log file that is often less private than
+/// the 0600 reports, and that the panic message asks to be sent with a bug report. A directive
+/// that names a target (`handlebars=debug`) is kept as written. `None` when empty.
+fn log_directives(var: &str) -> Option<String> {
+    let mut directives = Vec::new();
+    // Libraries log warnings, or less when a quieter level is asked for.
+    let mut others = "warn".to_string();
+    for d in var.split(',').map(str::trim).filter(|d| !d.is_empty()) {
+        let level = d.to_ascii_lowercase();
+        if ["trace", "debug", "info", "warn", "error", "off"].contains(&level.as_str()) {
+            if ["error", "off"].contains(&level.as_str()) {
+                others = level.clone();
+            }
+            directives.push(format!("cohortpress={level}"));
+        } else {
+            directives.push(d.to_string());
+        }
+    }
+    if directives.is_empty() {
+        return None;
+    }
+    directives.insert(0, others);
+    Some(directives.join(","))
 }
 
 /// The text log's fields: as tracing-subscriber's default, without the fields that say where a

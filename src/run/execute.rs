@@ -359,8 +359,76 @@ fn tally(
             }
         }
     }
+    log_participant_warnings(&all_diags);
     inputs.sort_by(|a, b| a.path.cmp(&b.path));
     (summary, all_diags, rows, inputs)
+}
+
+/// Participants shown by name in [`log_participant_warnings`]; the rest are counted.
+const WARNED_PARTICIPANTS_SHOWN: usize = 20;
+
+/// One WARN line that says whose files the participants' warnings are about, each file with
+/// its count and its first warning (line and message, cut at 120 characters). The last line
+/// only counted them ("4 warnings"), each was logged at DEBUG, so an administrator had to
+/// open `metrics/data-quality.csv` to tell this month's exit code 1 from last month's: the
+/// rows after a known withdrawal, or a weights file cut short by a crashed sync.
+fn log_participant_warnings(diags: &[Diagnostic]) {
+    use std::collections::BTreeMap;
+    let mut by_participant: BTreeMap<&str, BTreeMap<&str, (usize, &Diagnostic)>> = BTreeMap::new();
+    for d in diags.iter().filter(|d| d.severity == Severity::Warning) {
+        let Some(p) = d.participant.as_deref() else {
+            continue;
+        };
+        let file = d.file.rsplit('/').next().unwrap_or(&d.file);
+        by_participant
+            .entry(p)
+            .or_default()
+            .entry(file)
+            .and_modify(|(n, _)| *n += 1)
+            .or_insert((1, d));
+    }
+    if by_participant.is_empty() {
+        return;
+    }
+    let total: usize = by_participant
+        .values()
+        .flat_map(|files| files.values().map(|(n, _)| n))
+        .sum();
+    let mut parts: Vec<String> = by_participant
+        .iter()
+        .take(WARNED_PARTICIPANTS_SHOWN)
+        .map(|(p, files)| {
+            let files: Vec<String> = files
+                .iter()
+                .map(|(file, (n, first))| {
+                    let at = first
+                        .line
+                        .map(|l| format!("line {l}: "))
+                        .unwrap_or_default();
+                    let mut message: String = first.message.chars().take(120).collect();
+                    if first.message.chars().count() > 120 {
+                        message.push('…');
+                    }
+                    format!("{file} {n} ({at}{message})")
+                })
+                .collect();
+            format!("{p}: {}", files.join(", "))
+        })
+        .collect();
+    if by_participant.len() > WARNED_PARTICIPANTS_SHOWN {
+        parts.push(format!(
+            "and {} more participants",
+            by_participant.len() - WARNED_PARTICIPANTS_SHOWN
+        ));
+    }
+    tracing::warn!(
+        "{total} input warning{} in the files of {} participant{}, each listed in \
+         metrics/data-quality.csv (and by `cohortpress check`): {}",
+        if total == 1 { "" } else { "s" },
+        by_participant.len(),
+        if by_participant.len() == 1 { "" } else { "s" },
+        parts.join("; ")
+    );
 }
 
 /// Refuses, before any participant is computed, a ledger folder the group step could not open

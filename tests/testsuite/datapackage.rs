@@ -626,3 +626,56 @@ fn the_trajectory_by_week_since_enrolment_is_in_tables_csv_and_repeats_the_group
     }
     assert!(compared >= 20, "only {compared} weeks shown");
 }
+
+#[test]
+fn a_completer_who_withdrew_in_the_last_28_days_is_explained_by_the_descriptor() {
+    // A participant who withdrew (consent) on 20 May and weighed in before it is a completer
+    // of May (weighed in within its last 28 days): `completer` true beside `withdrew`
+    // 2026-05-20. The descriptor said only "started and weighed in within the last 28 days",
+    // so an analyst took the row for a mistake or dropped the withdrawal.
+    let t = crate::harness::ProgramTest::demo(2);
+    let profile = t.dir.join("participants/SG-001/profile.yaml");
+    let mut text = std::fs::read_to_string(&profile).unwrap();
+    text.push_str("withdrew: 2026-05-20\n");
+    std::fs::write(&profile, text).unwrap();
+    let out = t.dir.parent().unwrap().join("r");
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-01",
+        "--period",
+        "2026-05",
+        "--formats",
+        "html",
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let metrics = out.join("metrics");
+    let mut csv = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = csv.headers().unwrap().iter().map(str::to_string).collect();
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
+    let row = csv
+        .records()
+        .map(Result::unwrap)
+        .find(|x| &x[0] == "SG-001")
+        .unwrap();
+    assert_eq!(
+        (&row[col("withdrew")], &row[col("completer")]),
+        ("2026-05-20", "true")
+    );
+    let package = read_json(&metrics.join("datapackage.json"));
+    let fields = package["resources"][0]["schema"]["fields"]
+        .as_array()
+        .unwrap();
+    let completer = fields.iter().find(|f| f["name"] == "completer").unwrap();
+    let description = completer["description"].as_str().unwrap();
+    assert!(
+        description.contains(
+            "(also someone who withdrew within them: their weigh-ins up to `withdrew` count, \
+             while the group report's retention counts them as withdrawn)"
+        ),
+        "{description}"
+    );
+}

@@ -1246,3 +1246,172 @@ fn a_run_that_ends_with_warnings_says_how_many_and_why_in_its_log() {
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(!r.stderr.contains("done in"), "{}", r.stderr);
 }
+
+#[test]
+fn a_debug_log_holds_cohortpress_lines_and_no_report_text() {
+    // `COHORTPRESS_LOG=debug` (the README's "for more", and what the panic message asks for)
+    // also turned on the template engine's and the HTML parser's debug lines: every report's
+    // text went to the log, participants' names and weights with it, about 2,000 lines per
+    // participant. The level is now cohortpress's own; libraries stay at warnings.
+    let t = ProgramTest::demo(2);
+    let profile = std::fs::read_to_string(t.dir.join("participants/SG-001/profile.yaml")).unwrap();
+    let name = profile
+        .lines()
+        .find_map(|l| l.strip_prefix("name: "))
+        .unwrap()
+        .trim_matches('"')
+        .to_string();
+    let r = t.run_env(
+        &["run", "{dir}", "--as-of", AS_OF, "--out", &out(&t, "r")],
+        &[("COHORTPRESS_LOG", "debug")],
+    );
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    // Debug lines write text escaped (`\u{141}ucja`).
+    for written in [name.clone(), name.escape_default().to_string()] {
+        assert!(!r.stderr.contains(&written), "{written} is in the log");
+    }
+    assert!(
+        !r.stderr.contains("Current weight"),
+        "{}",
+        &r.stderr[..2000.min(r.stderr.len())]
+    );
+    // cohortpress's own debug lines are still there.
+    assert!(
+        r.stderr
+            .lines()
+            .any(|l| l.contains("DEBUG") && l.contains("output files")),
+        "{}",
+        r.stderr
+    );
+    assert!(
+        r.stderr.lines().count() < 20,
+        "{}",
+        r.stderr.lines().count()
+    );
+    // A library named on its own is still logged as asked.
+    let r = t.run_env(
+        &[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--out",
+            &out(&t, "s"),
+            "--formats",
+            "html",
+        ],
+        &[("COHORTPRESS_LOG", "info,handlebars=debug")],
+    );
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(r.stderr.contains("Rendering"), "{}", r.stderr);
+}
+
+#[cfg(unix)]
+#[test]
+fn a_killed_run_into_another_months_folder_is_cleared_and_named_by_the_next_run() {
+    // With a folder per month (the README's second crontab line), only a later run into the
+    // same month's folder removed what a killed run left: June's run killed half way left
+    // `.2026-06.staging` (half of June's identified reports) for good, and July's run said
+    // nothing, so nothing in the log told that June had no output.
+    let t = ProgramTest::demo(60);
+    let (june, july, august) = (out(&t, "2026-06"), out(&t, "2026-07"), out(&t, "2026-08"));
+    let june_shown = std::fs::canonicalize(t.dir.parent().unwrap())
+        .unwrap()
+        .join("2026-06")
+        .display()
+        .to_string();
+    // A run into June still writing: its staging folder is left alone.
+    let mut running = spawn_run(&t, &june, &["--jobs", "1"]);
+    wait_for_files(&mut running, &staging_of(&june).join("participants"), 4);
+    let r = run(&t, &july, &["--only", "SG-001", "--formats", "html"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        !r.stderr.contains("stopped before it finished"),
+        "{}",
+        r.stderr
+    );
+    assert!(count_files(&staging_of(&june)) >= 4);
+    // Killed (SIGKILL): June has no output, and its staging folder is what is left of it.
+    running.kill().unwrap();
+    running.wait().unwrap();
+    assert!(!Path::new(&june).exists());
+    let left = count_files(&staging_of(&june));
+    assert!(left >= 5, "{left}");
+    let r = run(&t, &august, &["--only", "SG-001", "--formats", "html"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        !staging_of(&june).exists(),
+        "June's staging folder was left"
+    );
+    let said = r
+        .stderr
+        .lines()
+        .find(|l| l.contains("stopped before it finished"))
+        .unwrap_or_else(|| panic!("{}", r.stderr));
+    assert!(said.contains("WARN"), "{said}");
+    assert!(
+        said.contains(&format!(
+            "a run into {june_shown} was stopped before it finished"
+        )),
+        "{said}"
+    );
+    // The marker is not counted: the files a reader would find.
+    assert!(said.contains(&format!("({} files,", left - 1)), "{said}");
+    assert!(
+        said.contains(&format!(
+            "{june_shown} was never written: run that period again"
+        )),
+        "{said}"
+    );
+    // July's output and the August run's own are complete.
+    assert!(Path::new(&july).join("manifest.json").is_file());
+    assert!(Path::new(&august).join("manifest.json").is_file());
+}
+
+#[test]
+fn a_run_with_participant_warnings_says_whose_files_in_its_log() {
+    // A weights file cut short by a crashed sync (its end zero-filled) ended the run with exit
+    // code 1 and a last line "2 warnings", and nothing in the log said whose file or what: an
+    // administrator had to open metrics/data-quality.csv to learn it.
+    let t = ProgramTest::demo(3);
+    let weights = t.dir.join("participants/SG-002/weights.csv");
+    let mut bytes = std::fs::read(&weights).unwrap();
+    let lines = bytes.iter().filter(|&&b| b == b'\n').count();
+    bytes.extend_from_slice(&[0u8; 40]);
+    std::fs::write(&weights, bytes).unwrap();
+    let r = run(
+        &t,
+        &out(&t, "r"),
+        &["--log-format", "json", "--formats", "html", "--quiet"],
+    );
+    assert_eq!(r.code, cohortpress::exit_code::WARNINGS, "{}", r.stderr);
+    let lines_logged = json_lines("warnings", &r.stderr);
+    let said = lines_logged
+        .iter()
+        .find(|v| {
+            v["fields"]["message"]
+                .as_str()
+                .is_some_and(|m| m.contains("input warning"))
+        })
+        .unwrap_or_else(|| panic!("{}", r.stderr));
+    assert_eq!(said["level"], "WARN", "{said}");
+    let message = said["fields"]["message"].as_str().unwrap();
+    assert!(
+        message.starts_with(
+            "1 input warning in the files of 1 participant, each listed in \
+             metrics/data-quality.csv (and by `cohortpress check`): SG-002: weights.csv 1 \
+             (line "
+        ),
+        "{message}"
+    );
+    assert!(
+        message.contains(&format!(
+            "line {}: the file ends with 40 zero bytes, which are not read",
+            lines + 1
+        )),
+        "{message}"
+    );
+    // The last line still ends the log, with the count.
+    let done = lines_logged.last().unwrap();
+    assert_eq!(done["fields"]["warnings"], 1, "{done}");
+}
