@@ -1074,14 +1074,23 @@ fn maintain(
     // diabetes a loss beyond 5 % often brings further benefit: ADA Standards of Care, from
     // memory), so the report neither says "not to lose more" nor that the loss "does not need"
     // to go on (a participant at HbA1c 6.8 %, BMI 31.3, 9.7 % down read both).
-    let clinician_decides = why == MaintainWhy::TargetReached
-        && f.lab_in_diabetes_range
+    // At a BMI at which loss is still offered, the program's target is a milestone, not a
+    // ceiling: someone at BMI 50 who reached a 5 % target read "The aim from here is to hold
+    // your weight, not to lose more" and "it does not need to" (attack18). Holding the loss is
+    // the aim the report gives; a further target is for the person and the program staff.
+    let loss_still_offered = why == MaintainWhy::TargetReached
         && state
             .bmi
             .is_some_and(|b| !bmi_below(b, t.loss_cut(state.older)));
+    let clinician_decides = loss_still_offered && f.lab_in_diabetes_range;
     g.paragraphs.push(match why {
         MaintainWhy::TargetReached if clinician_decides => format!(
             "You have reached your target of a {} % loss (you are at {} %). Whether losing more would help with your blood sugar is for your clinician to judge; until you have talked it over, the aim is to hold your weight.",
+            fmt::fixed(state.target_percent.abs(), 0),
+            fmt::fixed(change.abs(), 1)
+        ),
+        MaintainWhy::TargetReached if loss_still_offered => format!(
+            "You have reached your target of a {} % loss (you are at {} %). Holding this loss is the aim for now; whether to set a further target is for you and the program staff to agree.",
             fmt::fixed(state.target_percent.abs(), 0),
             fmt::fixed(change.abs(), 1)
         ),
@@ -1151,7 +1160,7 @@ fn maintain(
             .slope
             .map(|s| format!(" (about {})", rate_words_to(s.value, f.units, decimals)))
             .unwrap_or_default();
-        g.paragraphs.push(if clinician_decides {
+        g.paragraphs.push(if loss_still_offered {
             format!("Your weight is still coming down{rate}.")
         } else {
             format!("Your weight is still coming down{rate}, and it does not need to.")
@@ -2026,6 +2035,50 @@ mod tests {
         assert!(g.paragraphs.iter().all(|p| !p.contains("age of 70")));
     }
 
+    /// A man of BMI 50 who reached the program's 5 % target (8.4 % down), still losing 0.4 kg a
+    /// week: the report said "The aim from here is to hold your weight, not to lose more" and
+    /// "it does not need to". At a BMI at which loss is offered the target is a milestone, not
+    /// a ceiling: holding the loss is the aim, a further target is agreed with the staff. Below
+    /// the loss cut-off (BMI 24) the wording is as before.
+    #[test]
+    fn a_reached_target_is_a_milestone_not_a_ceiling_at_a_bmi_loss_is_offered_at() {
+        let t = Thresholds::default();
+        let mut s = st(Losing);
+        s.bmi = Some(50.2);
+        s.change_percent = Some(-8.4);
+        assert_eq!(decide(&s, &t), Phase::Maintain(MaintainWhy::TargetReached));
+        let mut f = facts();
+        f.slope = Some(Est {
+            value: -0.39,
+            lower: Some(-0.5),
+            upper: Some(-0.28),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("You have reached your target of a 5 % loss (you are at 8.4 %). Holding this loss is the aim for now; whether to set a further target is for you and the program staff to agree."),
+            "{all}"
+        );
+        assert!(
+            all.contains("Your weight is still coming down (about 0.4 kg a week)."),
+            "{all}"
+        );
+        assert!(
+            !all.contains("not to lose more") && !all.contains("does not need to"),
+            "{all}"
+        );
+        s.bmi = Some(24.0);
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("The aim from here is to hold your weight, not to lose more.")
+                && all.contains("and it does not need to"),
+            "{all}"
+        );
+    }
+
     /// Demo-like participant past the 5 % target (9.7 % down), BMI 31, HbA1c in the diabetes
     /// range, still losing: the report said "The aim from here is to hold your weight, not to
     /// lose more" and "it does not need to", a medical claim the program target does not
@@ -2060,13 +2113,13 @@ mod tests {
             "{all}"
         );
         assert!(all.contains("diabetes range"), "{all}");
-        // Without the lab value: as before.
+        // Without the lab value the target is still a milestone at BMI 31 (see below).
         f.lab_in_diabetes_range = false;
         let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
             .paragraphs
             .join(" ");
         assert!(
-            all.contains("not to lose more") && all.contains("and it does not need to"),
+            !all.contains("not to lose more") && !all.contains("does not need to"),
             "{all}"
         );
         // Below BMI 25 loss is not offered anyway: as before.
