@@ -542,6 +542,13 @@ pub fn still_rising(t: &TrendView) -> bool {
     t.status != Status::InsufficientData && t.slope_kg_per_week.lower.is_some_and(|l| l > 0.0)
 }
 
+/// Whether the last four weeks' slope interval lies wholly below zero, in a window the trend
+/// module gives a verdict on: a slow fall inside the plateau band (which is a share of body
+/// weight, so 0.6 kg a week at 250 kg).
+pub fn still_falling(t: &TrendView) -> bool {
+    t.status != Status::InsufficientData && t.slope_kg_per_week.upper.is_some_and(|u| u < 0.0)
+}
+
 /// Whether the trend module's level test confirms a rise from the lowest trend weight.
 pub fn regain_confirmed(t: &TrendView) -> bool {
     t.regain_verdict == Some(RegainVerdict::Regaining)

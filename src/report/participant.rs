@@ -819,11 +819,20 @@ fn headline(
         Status::Plateau if trend.is_some_and(guidance::still_rising) => format!(
             "Your weight has edged up over the last four weeks ({rate_s}), slowly enough to count as a plateau."
         ),
+        // And a slope whose whole interval is below zero is the slow fall it is: a man of
+        // 197 kg read "held steady" beside "Recent rate −0.39 kg/week" (the band is 0.25 % of
+        // body weight a week, 0.49 kg at his weight).
+        Status::Plateau if trend.is_some_and(guidance::still_falling) => format!(
+            "Your weight has edged down over the last four weeks ({rate_s}), slowly enough to count as a plateau."
+        ),
         Status::Plateau => {
             "Your weight has held steady over the last four weeks (a plateau).".to_string()
         }
         Status::Stable if trend.is_some_and(guidance::still_rising) => format!(
             "Your weight has been nearly stable over the last four weeks, edging up slowly ({rate_s})."
+        ),
+        Status::Stable if trend.is_some_and(guidance::still_falling) => format!(
+            "Your weight has been nearly stable over the last four weeks, edging down slowly ({rate_s})."
         ),
         Status::Regaining => {
             format!("Your weight trend has been rising over the last four weeks ({rate_s}).")
@@ -2101,6 +2110,40 @@ mod activity_unread_tests {
         // An interval that reaches zero: held steady, as before.
         t.status = Status::Plateau;
         t.slope_kg_per_week.lower = Some(-0.02);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        assert_eq!(
+            h,
+            "Your weight has held steady over the last four weeks (a plateau)."
+        );
+    }
+
+    /// A man of 197 kg, BMI 50, losing 0.39 kg a week (95 % −0.50 to −0.28), inside the plateau
+    /// band of 0.25 % of body weight a week (0.49 kg at his weight): "Your weight has held
+    /// steady over the last four weeks (a plateau)" stood above "Recent rate −0.39 kg/week".
+    #[test]
+    fn a_plateau_that_is_still_edging_down_is_not_called_steady() {
+        let mut t = TrendView {
+            status: Status::Plateau,
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week = Interval {
+            value: Some(-0.39),
+            lower: Some(-0.50),
+            upper: Some(-0.28),
+        };
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        assert_eq!(
+            h,
+            "Your weight has edged down over the last four weeks (−0.39 kg/week), slowly enough to count as a plateau."
+        );
+        t.status = Status::Stable;
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        assert_eq!(
+            h,
+            "Your weight has been nearly stable over the last four weeks, edging down slowly (−0.39 kg/week)."
+        );
+        t.status = Status::Plateau;
+        t.slope_kg_per_week.upper = Some(0.02);
         let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
         assert_eq!(
             h,
