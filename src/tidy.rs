@@ -54,16 +54,43 @@ pub struct TidyParticipant {
     pub flags_at_follow_up: Vec<(String, String)>,
     /// Module failures (module, message).
     pub failures: Vec<(String, String)>,
+    /// weights.csv's data rows (rows dropped for their shape included; not blank lines,
+    /// repeated headers, date rows or summary rows); `None` when the file is absent.
+    pub weights_rows_in_file: Option<usize>,
+    /// weights.csv's rows used: weigh-ins after duplicates and the rows outside the
+    /// participant's window are left out; 0 when the file is refused as a whole.
+    pub weights_rows_used: Option<usize>,
+    /// intake.csv's data rows, as `weights_rows_in_file` (a day's total row is a summary row).
+    pub intake_rows_in_file: Option<usize>,
+    /// intake.csv's rows used, before they are summed by day.
+    pub intake_rows_used: Option<usize>,
+    /// activity.csv's data rows, as `weights_rows_in_file`.
+    pub activity_rows_in_file: Option<usize>,
+    /// activity.csv's rows used.
+    pub activity_rows_used: Option<usize>,
 }
+
+/// The names of the row-count columns of participants.csv, in their order, with how each is
+/// read from a [`TidyParticipant`].
+type RowColumn = (&'static str, fn(&TidyParticipant) -> Option<usize>);
+const ROW_COLUMNS: [RowColumn; 6] = [
+    ("weights_rows_in_file", |t| t.weights_rows_in_file),
+    ("weights_rows_used", |t| t.weights_rows_used),
+    ("intake_rows_in_file", |t| t.intake_rows_in_file),
+    ("intake_rows_used", |t| t.intake_rows_used),
+    ("activity_rows_in_file", |t| t.activity_rows_in_file),
+    ("activity_rows_used", |t| t.activity_rows_used),
+];
 
 /// Collects a participant's tidy metrics from the module results and their row for the group
 /// step (`summary`: who the group report counts as started and as a completer), for a period
-/// ending on `period_to`.
+/// ending on `period_to`; `rows` are the rows in and used of their files.
 pub fn participant(
     data: &ParticipantData,
     results: &ModuleResults,
     summary: &ParticipantSummary,
     period_to: NaiveDate,
+    rows: &crate::participant::FileRows,
 ) -> TidyParticipant {
     // As the group step counts them: started needs a positive, finite baseline weight.
     let started = summary.started
@@ -94,6 +121,12 @@ pub fn participant(
             .iter()
             .map(|f| (f.module.clone(), f.for_outputs()))
             .collect(),
+        weights_rows_in_file: rows.weights.in_file,
+        weights_rows_used: rows.weights.used,
+        intake_rows_in_file: rows.intake.in_file,
+        intake_rows_used: rows.intake.used,
+        activity_rows_in_file: rows.activity.in_file,
+        activity_rows_used: rows.activity.used,
     };
     for (module, out) in &results.outputs {
         t.scalars
@@ -398,6 +431,7 @@ pub fn render(
     header.push("clinical_flags".into());
     header.push("clinical_flags_at_follow_up".into());
     header.push("module_failures".into());
+    header.extend(ROW_COLUMNS.iter().map(|(name, _)| name.to_string()));
     participants.write_record(&header)?;
     weekly.write_record([
         "participant_id",
@@ -500,6 +534,11 @@ pub fn render(
                     .map(|(m, _)| m.as_str())
                     .collect::<Vec<_>>()
                     .join(";"),
+            );
+            rec.extend(
+                ROW_COLUMNS
+                    .iter()
+                    .map(|(_, get)| get(&r).map(|n| n.to_string()).unwrap_or_default()),
             );
             participants.write_record(&rec)?;
 
@@ -701,6 +740,31 @@ pub fn datapackage(
         "string",
         "ids of the modules that failed for this participant, separated by `;`",
     ));
+    for (name, _) in ROW_COLUMNS {
+        let (file, what) = name.split_once("_rows_").unwrap_or((name, ""));
+        let description = if what == "in_file" {
+            format!(
+                "data rows of the participant's {file}.csv as the table reader sees them, rows                  dropped for their shape included (not blank lines, a repeated header, title                  lines above the header, the date rows of an export that writes each date on a                  row of its own, or summary rows such as `Average` or a day's `Total`); empty                  when the file is absent or cannot be read as text"
+            )
+        } else {
+            format!(
+                "rows of {file}.csv used: {}; {file}_rows_in_file minus this is the rows                  dropped for any reason, each named in data-quality.csv (capped per kind); 0                  when the file is refused as a whole, empty when it is absent",
+                match file {
+                    "weights" =>
+                        "the weigh-ins kept after duplicates and the rows outside the participant's window are left out",
+                    "intake" => "the rows of the days kept, before they are summed by day",
+                    _ => "the activity rows kept",
+                }
+            )
+        };
+        fields.push(DpField {
+            constraints: Some(DpConstraints {
+                minimum: Some(0),
+                ..Default::default()
+            }),
+            ..DpField::new(name, "integer", description)
+        });
+    }
     let positive = |name: &str, description: &str, required: bool| DpField {
         constraints: Some(DpConstraints {
             required: required.then_some(true),
@@ -841,8 +905,10 @@ pub fn datapackage(
              [module, {name, label, unit, value, and lower and upper where an interval \
              exists}]), flags (the flags for a licensed clinician's review), \
              flags_at_follow_up (of them, [module, code] of each seen at follow-up only, as \
-             clinical_flags_at_follow_up in participants.csv) and failures (the modules that \
-             failed for this participant)",
+             clinical_flags_at_follow_up in participants.csv), failures (the modules that \
+             failed for this participant) and the row counts of participants.csv \
+             (weights_rows_in_file, weights_rows_used, intake_rows_in_file, intake_rows_used, \
+             activity_rows_in_file, activity_rows_used; null where that file has them empty)",
         ),
     ];
     if group {
@@ -1051,6 +1117,12 @@ mod tests {
                 flags: vec![],
                 flags_at_follow_up: vec![],
                 failures: vec![],
+                weights_rows_in_file: None,
+                weights_rows_used: None,
+                intake_rows_in_file: None,
+                intake_rows_used: None,
+                activity_rows_in_file: None,
+                activity_rows_used: None,
             });
             !c.not_dates.contains(&("dt".into(), "day".into()))
         };

@@ -61,6 +61,31 @@ pub struct LoadedParticipant {
     pub files: Vec<InputFile>,
     /// Line of `enrolled` in profile.yaml, for messages about the enrolment date.
     pub enrolled_line: Option<u64>,
+    /// Rows in the file and rows used, of weights.csv, intake.csv and activity.csv.
+    pub rows: FileRows,
+}
+
+/// Of one input file: its data rows as the table reader sees them, rows dropped for their
+/// shape included (not blank lines, repeated headers, title lines, date rows or summary rows),
+/// and the rows its parser kept at its end. Both `None` when the file is absent; `in_file`
+/// `None` and `used` 0 when it could not be read as text at all.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct RowCount {
+    /// Data rows in the file.
+    pub in_file: Option<usize>,
+    /// Rows used.
+    pub used: Option<usize>,
+}
+
+/// [`RowCount`] of the files whose rows the tidy metrics count.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct FileRows {
+    /// weights.csv.
+    pub weights: RowCount,
+    /// intake.csv.
+    pub intake: RowCount,
+    /// activity.csv.
+    pub activity: RowCount,
 }
 
 impl LoadedParticipant {
@@ -712,6 +737,7 @@ pub fn load_opened(
                 notes: Vec::new(),
                 files,
                 enrolled_line: None,
+                rows: FileRows::default(),
             };
         }
     };
@@ -844,7 +870,7 @@ pub fn load_opened(
             let ctx = FileCtx::new(id, rel(&name));
             note_case(&ctx, &name, $spec.name);
             let first_diag = diags.len();
-            let rows = match read_input(
+            let (rows, count) = match read_input(
                 &handle,
                 &name,
                 listing.as_deref(),
@@ -852,22 +878,43 @@ pub fn load_opened(
                 &mut files,
                 &mut diags,
             ) {
-                None => Vec::new(),
-                Some(Err(())) => Vec::new(),
+                None => (Vec::new(), RowCount::default()),
+                Some(Err(())) => (
+                    Vec::new(),
+                    RowCount {
+                        in_file: None,
+                        used: Some(0),
+                    },
+                ),
                 Some(Ok(text)) => {
-                    $parse(&text, &opts, &ctx, &window, &mut diags).unwrap_or_default()
+                    let parsed = $parse(&text, &opts, &ctx, &window, &mut diags);
+                    let used = parsed
+                        .as_ref()
+                        .map_or(0, |v| ctx.rows_used().unwrap_or(v.len()));
+                    (
+                        parsed.unwrap_or_default(),
+                        RowCount {
+                            in_file: Some(ctx.rows_in_file()),
+                            used: Some(used),
+                        },
+                    )
                 }
             };
             notes.extend(ctx.take_notes());
             crate::diag::cap_per_kind(&mut diags, first_diag);
-            rows
+            (rows, count)
         }};
     }
-    let weights = csv_file!(records::WEIGHTS, records::parse_weights);
-    let intake = csv_file!(records::INTAKE, records::parse_intake);
-    let activity = csv_file!(records::ACTIVITY, records::parse_activity);
-    let sessions = csv_file!(records::SESSIONS, records::parse_sessions);
-    let labs = csv_file!(records::LABS, records::parse_labs);
+    let (weights, weights_rows) = csv_file!(records::WEIGHTS, records::parse_weights);
+    let (intake, intake_rows) = csv_file!(records::INTAKE, records::parse_intake);
+    let (activity, activity_rows) = csv_file!(records::ACTIVITY, records::parse_activity);
+    let (sessions, _) = csv_file!(records::SESSIONS, records::parse_sessions);
+    let (labs, _) = csv_file!(records::LABS, records::parse_labs);
+    let rows = FileRows {
+        weights: weights_rows,
+        intake: intake_rows,
+        activity: activity_rows,
+    };
 
     // Height and weight each in range can still give a BMI no adult has (250 cm typed for
     // 150 cm): every BMI, its WHO class and the clinical flags built on it would be wrong.
@@ -905,6 +952,7 @@ pub fn load_opened(
         notes,
         files,
         enrolled_line,
+        rows,
     }
 }
 

@@ -1652,6 +1652,8 @@ pub fn parse_intake(
         }
     }
     let mut out = Vec::new();
+    // The rows of the days kept, before they are summed.
+    let mut used = 0usize;
     for (date, day) in days {
         if day.kcal <= 0.0 || day.kcal > MAX_KCAL_PER_DAY {
             let lines = day
@@ -1677,6 +1679,7 @@ pub fn parse_intake(
             continue;
         }
         let [carbs_g, fat_g, protein_g, free_sugars_g] = day.macros;
+        used += day.lines.len();
         out.push(IntakeDay {
             date,
             kcal: day.kcal,
@@ -1686,6 +1689,7 @@ pub fn parse_intake(
             free_sugars_g,
         });
     }
+    ctx.set_rows_used(used);
     Some(out)
 }
 
@@ -1765,6 +1769,10 @@ fn drop_total_rows(
     rows.into_iter()
         .filter(|r| {
             let total_of_others = r.value.total && days[&r.date].1 > 0;
+            // A day's total beside its other rows sums them up: no data row of the file.
+            if total_of_others {
+                ctx.uncount_row();
+            }
             !(unknown_days.contains(&r.date) || total_of_others)
         })
         .collect()

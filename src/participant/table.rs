@@ -43,6 +43,12 @@ pub struct FileCtx {
     pub file: String,
     /// Notes about how the file was read (see [`Note`]).
     pub notes: RefCell<Vec<Note>>,
+    /// Data rows the table reader saw below the header, rows dropped for their shape
+    /// included (not blank lines, repeated headers, date rows or summary rows): the
+    /// `*_rows_in_file` of the tidy metrics.
+    rows_in_file: Cell<usize>,
+    /// Rows the file's parser kept at its end, when it set them (see [`FileCtx::set_rows_used`]).
+    rows_used: Cell<Option<usize>>,
 }
 
 impl FileCtx {
@@ -52,7 +58,32 @@ impl FileCtx {
             participant: participant.to_string(),
             file: file.into(),
             notes: RefCell::new(Vec::new()),
+            rows_in_file: Cell::new(0),
+            rows_used: Cell::new(None),
         }
+    }
+    /// Counts one data row of the file (kept or dropped).
+    pub fn count_row(&self) {
+        self.rows_in_file.set(self.rows_in_file.get() + 1);
+    }
+    /// Takes back a row counted by [`FileCtx::count_row`] that sums up others (`Average`,
+    /// a day's `Total`): no data row.
+    pub fn uncount_row(&self) {
+        self.rows_in_file
+            .set(self.rows_in_file.get().saturating_sub(1));
+    }
+    /// Data rows counted so far.
+    pub fn rows_in_file(&self) -> usize {
+        self.rows_in_file.get()
+    }
+    /// Sets the rows the parser kept, where they are not the records it returns (intake:
+    /// its rows before the per-day sums).
+    pub fn set_rows_used(&self, n: usize) {
+        self.rows_used.set(Some(n));
+    }
+    /// Rows the parser kept, when it set them.
+    pub fn rows_used(&self) -> Option<usize> {
+        self.rows_used.get()
     }
     /// An error about this file.
     pub fn error(&self, message: impl Into<String>) -> Diagnostic {
@@ -1564,6 +1595,7 @@ fn read_records(
             Ok(false) => break,
             Err(e) => {
                 let line = e.position().map(|p| line_of(Some(p)));
+                ctx.count_row();
                 let mut d = ctx.warning(format!("unreadable row is dropped ({e})"));
                 if let Some(l) = line {
                     d = d.at(l, None);
@@ -1657,6 +1689,7 @@ fn read_records(
             continue;
         }
         if let Some(i) = rec.iter().position(|f| f.len() > MAX_CSV_FIELD_BYTES) {
+            ctx.count_row();
             row_diags.push(
                 ctx.warning(format!(
                     "a field of {} bytes is longer than the limit of {MAX_CSV_FIELD_BYTES}; the row is dropped",
@@ -1710,6 +1743,7 @@ fn read_records(
             continue;
         }
         if !fits && let Some(i) = split {
+            ctx.count_row();
             row_diags.push(split_text_warning(
                 ctx,
                 &rec,
@@ -1722,6 +1756,7 @@ fn read_records(
             continue;
         }
         if !fits {
+            ctx.count_row();
             let mut d = ctx
                 .warning(format!(
                     "row has {} but the header has {}; the row is dropped",
@@ -1780,6 +1815,7 @@ fn read_records(
             table.bounds.push((start, table.text.len()));
         }
         table.rows.push(Row { line, first });
+        ctx.count_row();
     }
     // A row of one field too many, the last empty, with a text value split in two before a
     // column read (`2026-03-02,walk, brisk,30,` under `Date,Activity,Minutes,Notes`) was read
@@ -3201,6 +3237,7 @@ impl Cells<'_> {
 
     /// Counts this row as one that sums up the others (`label`), for the file's note.
     pub fn summary_row(&self, label: &str) {
+        self.ctx.uncount_row();
         let mut rows = self.table.summary_rows.borrow_mut();
         rows.0 += 1;
         // The first in the file: rows summed up in one field are counted while reading.

@@ -607,3 +607,118 @@ fn a_hidden_folder_with_a_profile_is_named() {
     );
     assert_eq!(diags.len(), 2, "{diags:#?}");
 }
+
+/// The tidy metrics' rows in the file and rows used: a file of 7 data rows of which 4 are
+/// dropped (a duplicate, a row before enrolment, a row of the wrong shape, an unreadable
+/// weight) gives 7 and 3; blank lines, a repeated header and summary rows are no data rows.
+/// Before, nothing said how many rows a file held or how many were read.
+#[test]
+fn rows_in_the_file_and_rows_used_count_every_dropped_row() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights = b"date,weight,unit\n\
+        2026-04-01,91,kg\n\
+        2026-04-02 07:30,90.5,kg\n\
+        2026-04-02 07:30,90.5,kg\n\
+        \n\
+        2026-03-20,92,kg\n\
+        date,weight,unit\n\
+        2026-04-03,90,kg,scale,extra\n\
+        2026-04-04,abc,kg\n\
+        2026-04-05,89.8,kg\n\
+        Average,90.3,kg\n\
+        Average: 90.3 kg\n";
+    // A day of two rows (both used, summed), an implausible day and an unreadable row.
+    let intake = b"date,kcal\n\
+        2026-04-02,1800\n\
+        2026-04-03,20000\n\
+        2026-04-04,abc\n\
+        2026-04-05,1900\n\
+        2026-04-05,300\n";
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", PROFILE.as_bytes()),
+            ("weights.csv", weights),
+            ("intake.csv", intake),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    let data = lp.data.as_ref().unwrap();
+    assert_eq!(data.weights.len(), 3, "{:#?}", lp.diagnostics);
+    assert_eq!(
+        lp.rows.weights,
+        RowCount {
+            in_file: Some(7),
+            used: Some(3)
+        },
+        "{:#?}",
+        lp.diagnostics
+    );
+    // Each dropped weigh-in is named: the duplicate (a weigh-in with a time of day repeated;
+    // two without one are two weigh-ins), before enrolment, the wrong shape, not a number.
+    for line in [4, 6, 8, 9] {
+        assert!(
+            lp.diagnostics.iter().any(|d| d.line == Some(line)),
+            "line {line}: {:#?}",
+            lp.diagnostics
+        );
+    }
+    assert_eq!(data.intake.len(), 2);
+    assert_eq!(
+        lp.rows.intake,
+        RowCount {
+            in_file: Some(5),
+            used: Some(3)
+        },
+        "{:#?}",
+        lp.diagnostics
+    );
+    // No activity.csv: empty cells, not 0.
+    assert_eq!(lp.rows.activity, RowCount::default());
+}
+
+/// A file refused as a whole gives its rows in the file and 0 used; a day's `Total` row beside
+/// its meals is a summary row, not a data row.
+#[test]
+fn a_refused_file_gives_its_rows_and_none_used() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", PROFILE.as_bytes()),
+            (
+                "activity.csv",
+                b"date,activity,minutes\n2026-04-02,walking,abc\n2026-04-03,walking,xyz\n",
+            ),
+            (
+                "intake.csv",
+                b"date,meal,kcal\n2026-04-02,breakfast,500\n2026-04-02,lunch,700\n\
+                  2026-04-02,Total,1200\n2026-04-03,dinner,900\n",
+            ),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.data.as_ref().unwrap().activity.is_empty());
+    assert_eq!(
+        lp.rows.activity,
+        RowCount {
+            in_file: Some(2),
+            used: Some(0)
+        },
+        "{:#?}",
+        lp.diagnostics
+    );
+    assert_eq!(
+        lp.rows.intake,
+        RowCount {
+            in_file: Some(3),
+            used: Some(3)
+        },
+        "{:#?}",
+        lp.diagnostics
+    );
+}

@@ -861,6 +861,7 @@ fn process_participant(
             &results,
             &summary,
             plan.period.to,
+            &loaded.rows,
         )));
         // Clinician follow-up list: this participant's flags, when the program turns it on.
         rec.followup = report::followup::for_participant(

@@ -377,6 +377,10 @@ pub struct TidyRecord {
     weekly_rows: Vec<[String; 8]>,
     #[serde(default)]
     table_rows: Vec<[String; 7]>,
+    /// Rows in and used of weights.csv, intake.csv and activity.csv, in
+    /// [`TidyParticipant`]'s order.
+    #[serde(default)]
+    file_rows: [Option<usize>; 6],
 }
 
 impl TidyRecord {
@@ -413,6 +417,14 @@ impl TidyRecord {
             failures: t.failures,
             weekly_rows: t.weekly_rows,
             table_rows: t.table_rows,
+            file_rows: [
+                t.weights_rows_in_file,
+                t.weights_rows_used,
+                t.intake_rows_in_file,
+                t.intake_rows_used,
+                t.activity_rows_in_file,
+                t.activity_rows_used,
+            ],
         }
     }
 
@@ -449,6 +461,12 @@ impl TidyRecord {
             failures: self.failures,
             weekly_rows: self.weekly_rows,
             table_rows: self.table_rows,
+            weights_rows_in_file: self.file_rows[0],
+            weights_rows_used: self.file_rows[1],
+            intake_rows_in_file: self.file_rows[2],
+            intake_rows_used: self.file_rows[3],
+            activity_rows_in_file: self.file_rows[4],
+            activity_rows_used: self.file_rows[5],
         }
     }
 }

@@ -679,3 +679,87 @@ fn a_completer_who_withdrew_in_the_last_28_days_is_explained_by_the_descriptor()
         "{description}"
     );
 }
+
+/// Per participant and input file, participants.csv says how many data rows the file holds and
+/// how many were used, so an export that lost most of its rows shows at once; before, nothing
+/// did. On the sample program each dropped row is one warning of data-quality.csv, a file that
+/// is absent gives empty cells (not 0), and participants.json and the descriptor agree.
+#[test]
+fn participants_csv_counts_each_files_rows_in_the_file_and_used() {
+    let metrics = sample_metrics();
+    assert_eq!(check_package(metrics), Vec::<String>::new());
+    let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let rows: Vec<csv::StringRecord> = r.records().map(Result::unwrap).collect();
+    let cell = |pid: &str, name: &str| {
+        let c = header.iter().position(|h| h == name).unwrap();
+        rows.iter().find(|x| &x[0] == pid).unwrap()[c].to_string()
+    };
+    let mut dq = csv::Reader::from_path(metrics.join("data-quality.csv")).unwrap();
+    let dropped: Vec<(String, String)> = dq
+        .records()
+        .map(Result::unwrap)
+        .filter(|x| x[6].contains("dropped"))
+        .map(|x| (x[1].to_string(), x[2].to_string()))
+        .collect();
+    let mut checked = 0;
+    for row in &rows {
+        let pid = &row[0];
+        for file in ["weights", "intake", "activity"] {
+            let in_file = cell(pid, &format!("{file}_rows_in_file"));
+            let used = cell(pid, &format!("{file}_rows_used"));
+            if in_file.is_empty() {
+                assert_eq!(used, "", "{pid} {file}");
+                continue;
+            }
+            let (n, k): (usize, usize) = (in_file.parse().unwrap(), used.parse().unwrap());
+            let path = format!("participants/{pid}/{file}.csv");
+            let warned = dropped
+                .iter()
+                .filter(|(p, f)| p == pid && *f == path)
+                .count();
+            assert_eq!(n - k, warned, "{pid} {file}: {n} in the file, {k} used");
+            checked += 1;
+        }
+    }
+    assert!(checked > 140, "{checked}");
+    // SG-023's weigh-in dated in the future is dropped; SG-019 has no activity.csv.
+    assert_eq!(cell("SG-023", "weights_rows_in_file"), "84");
+    assert_eq!(cell("SG-023", "weights_rows_used"), "83");
+    assert_eq!(cell("SG-019", "activity_rows_in_file"), "");
+    assert_eq!(cell("SG-019", "activity_rows_used"), "");
+    let json = read_json(&metrics.join("participants.json"));
+    let rec = |pid: &str| {
+        json.as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["participant_id"] == pid)
+            .unwrap()
+            .clone()
+    };
+    assert_eq!(rec("SG-023")["weights_rows_in_file"], 84);
+    assert_eq!(rec("SG-023")["weights_rows_used"], 83);
+    assert!(rec("SG-019")["activity_rows_in_file"].is_null());
+    let package = read_json(&metrics.join("datapackage.json"));
+    let fields = package["resources"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["path"] == "participants.csv")
+        .unwrap()["schema"]["fields"]
+        .clone();
+    let field = fields
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["name"] == "intake_rows_used")
+        .unwrap();
+    assert_eq!(field["type"], "integer");
+    assert!(
+        field["description"]
+            .as_str()
+            .unwrap()
+            .contains("before they are summed by day"),
+        "{field}"
+    );
+}
