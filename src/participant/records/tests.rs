@@ -2839,3 +2839,84 @@ fn a_comma_inside_a_label_is_a_field_too_many_at_the_comma() {
         [(Some(3), Some(4), Some("source".to_string()))]
     );
 }
+
+/// An unquoted comma inside a text value that leaves the row with exactly the header's number
+/// of fields (`2026-03-02,walk, brisk,30,` under `date,activity,minutes,met,notes`: the empty
+/// note absorbs the extra field) read shifted, with "not a number in `minutes`" at ` brisk`
+/// and a hint to write a number "(no words)": nothing named the comma. The warning now says
+/// the `,` in `walk, brisk` is likely the cause and how to quote it. A number column holding a
+/// word with no text before it (`abc`) keeps its hint.
+#[test]
+fn a_comma_inside_a_label_that_keeps_the_header_s_width_is_named_as_the_cause() {
+    let text = "date,activity,minutes,met,notes\n\
+                2026-05-02,walk, brisk,30,\n\
+                2026-05-03,Cycling,abc,6,\n\
+                2026-05-04,Walking,45,3.5,\n";
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    let got: Vec<(NaiveDate, f64)> = a.iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 4), 45.0)]);
+    let warnings: Vec<&Diagnostic> = diags
+        .iter()
+        .filter(|x| x.severity == Severity::Warning)
+        .collect();
+    assert_eq!(warnings.len(), 2, "{diags:#?}");
+    let w = warnings[0];
+    assert_eq!((w.line, w.column), (Some(2), Some(3)));
+    assert!(w.message.starts_with("not a number in `minutes`"), "{w}");
+    assert_eq!(
+        w.hint.as_deref(),
+        Some(
+            "the `,` in the `activity` value `walk, brisk` is likely read as a delimiter, moving `brisk` and every value after it one column on: quote the value: `\"walk, brisk\"` (or write it without the `,`)"
+        )
+    );
+    let w = warnings[1];
+    assert_eq!((w.line, w.column), (Some(3), Some(3)));
+    assert!(
+        w.hint
+            .as_deref()
+            .is_some_and(|h| h.starts_with("write a number such as `45`")),
+        "{w}"
+    );
+    // Quoted as the hint says, the row is read.
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        &text.replace("walk, brisk", "\"walk, brisk\""),
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(a.len(), 2, "{diags:#?}");
+    assert_eq!((a[0].date, a[0].minutes), (d(2026, 5, 2), 30.0));
+
+    // Intake: `Toast, buttered` before kcal, the notes empty.
+    let mut diags = Vec::new();
+    let days = parse_intake(
+        "Date,Food,kcal,Notes\n2026-05-02,Toast, buttered,250\n2026-05-03,Soup,400,\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(days.len(), 1);
+    let w = diags
+        .iter()
+        .find(|x| x.severity == Severity::Warning)
+        .expect("a warning");
+    assert!(
+        w.hint
+            .as_deref()
+            .is_some_and(|h| h.starts_with("the `,` in the `Food` value `Toast, buttered`")),
+        "{w}"
+    );
+}
