@@ -1097,6 +1097,45 @@ fn read_records(
             !is_start(&k)
                 && (k == "date" || spec.aliases.iter().any(|(a, c)| *a == k && *c == "date"))
         });
+    // An energy column headed by its unit alone (`kJ`, `KJ`, `Cal`), as some diaries export
+    // it: refused ("missing required column kcal") while `Energy (kJ)` was read. It is the
+    // energy column in that unit when no other header of the file names one (by our name, an
+    // alias, a unit suffix or the program's mapping). `kcal` alone is our own name already.
+    let resolves_to = |w: &str, col: &str| {
+        let (key, _) = header_key(w);
+        let via = |k: &str| k == col || spec.aliases.iter().any(|(a, c)| *a == k && *c == col);
+        user_map
+            .and_then(|m| m.get(&key))
+            .and_then(|t| spec.mapping_target(t))
+            .is_some_and(|m| m.0 == col)
+            || via(&key)
+            || key.rsplit_once('_').is_some_and(|(base, _)| via(base))
+    };
+    let bare_unit = |w: &str| {
+        let (key, unit) = header_key(w);
+        let allowed = spec
+            .header_units
+            .iter()
+            .find(|h| h.0 == "kcal")
+            .map_or(&[][..], |h| h.1);
+        (unit.is_none() && key != "kcal" && allowed.contains(&key.as_str())).then_some(key)
+    };
+    let bare_energy: Option<(usize, String)> = match written
+        .iter()
+        .enumerate()
+        .filter_map(|(i, w)| bare_unit(w).map(|k| (i, k)))
+        .collect::<Vec<_>>()[..]
+    {
+        [(i, ref k)]
+            if !written
+                .iter()
+                .enumerate()
+                .any(|(j, w)| j != i && resolves_to(w, "kcal")) =>
+        {
+            Some((i, k.clone()))
+        }
+        _ => None,
+    };
     for (i, name) in written.iter().enumerate() {
         let (key, unit) = header_key(name);
         let ours = |k: &str| spec.all_columns().find(|c| *c == k);
@@ -1119,6 +1158,12 @@ fn read_records(
             known = None;
         }
         let mut unit = unit;
+        if known.is_none()
+            && let Some((_, u)) = bare_energy.as_ref().filter(|b| b.0 == i)
+        {
+            known = Some("kcal");
+            unit = Some(u.clone());
+        }
         // A unit named by the mapping (`"Weight": weight (kg)`) is the unit of a column of
         // bare numbers: applied below, once the file's own columns are known.
         if let Some((c, Some(u))) = &mapped {

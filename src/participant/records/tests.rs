@@ -2920,3 +2920,47 @@ fn a_comma_inside_a_label_that_keeps_the_header_s_width_is_named_as_the_cause() 
         "{w}"
     );
 }
+
+/// An intake file whose energy column is headed by its unit alone (`kJ`, `KJ`, `Cal`) was
+/// refused ("missing required column `kcal`") while `Energy (kJ)` was read. It is now the
+/// energy column in that unit, converted as `Energy (kJ)` is; beside another energy column,
+/// that one is read and the unit alone is left as a column of another export.
+#[test]
+fn an_energy_column_headed_by_its_unit_alone_is_read_in_that_unit() {
+    let parse = |text: &str| {
+        let c = ctx("intake.csv");
+        let mut diags = Vec::new();
+        let v = parse_intake(text, &CsvOptions::default(), &c, &window(), &mut diags);
+        (v, diags, c.take_notes())
+    };
+    for header in ["kJ", "KJ", "kj", " kJ "] {
+        let (v, d, notes) = parse(&format!(
+            "date,{header}\n2026-04-01,8000\n2026-04-02,7600\n2026-04-03,9100\n"
+        ));
+        assert!(d.is_empty(), "{header}: {d:#?}");
+        let got: Vec<f64> = v.expect(header).iter().map(|x| x.kcal).collect();
+        assert_eq!(
+            got,
+            [8000.0 / 4.184, 7600.0 / 4.184, 9100.0 / 4.184],
+            "{header}"
+        );
+        assert!(
+            notes.iter().any(|n| n.message
+                == format!(
+                    "column `{}` read as `kcal`; `kcal` in kJ (from the header), converted to kcal at 4.184 kJ/kcal",
+                    header.trim()
+                )),
+            "{header}: {notes:#?}"
+        );
+    }
+    // `kcal` and `Cal` alone are kcal.
+    for header in ["kcal", "KCAL", "Cal"] {
+        let (v, d, _) = parse(&format!("date,{header}\n2026-04-01,1850\n"));
+        assert!(d.is_empty(), "{header}: {d:#?}");
+        assert_eq!(v.expect(header)[0].kcal, 1850.0, "{header}");
+    }
+    // Beside an energy column of its own name, the unit alone is not read.
+    let (v, d, _) = parse("date,Energy (kcal),kJ\n2026-04-01,1850,7740\n");
+    assert!(d.is_empty(), "{d:#?}");
+    assert_eq!(v.unwrap()[0].kcal, 1850.0);
+}
