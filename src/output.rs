@@ -42,6 +42,18 @@ pub enum StagingError {
         /// The error.
         source: std::io::Error,
     },
+    /// A file of the output refused while it was being written into staging (a full disk, a
+    /// file-size limit), named as the user knows it: the output folder's path and the file
+    /// (the staging folder is removed when the run stops, so its name means nothing to them).
+    #[error("{path}: {source}{}; {kept}", io_hint(.source))]
+    Write {
+        /// The output folder's path joined with the file's path inside it.
+        path: String,
+        /// The error.
+        source: std::io::Error,
+        /// What became of the output folder (left as it was).
+        kept: String,
+    },
 }
 
 /// Words added to an I/O error whose cause the OS text alone does not tell a user: a write
@@ -213,17 +225,17 @@ impl StagingFile<'_> {
     /// path in front, as [`StagingError::Io`] says it: the writers that stream into the file
     /// pass the error on as it is, and the run's message named no file.
     fn located(&self, e: std::io::Error) -> std::io::Error {
-        std::io::Error::new(e.kind(), format!("{}: {e}{}", self.rel, io_hint(&e)))
+        std::io::Error::new(
+            e.kind(),
+            self.staging.write_failed(&self.rel, e).to_string(),
+        )
     }
 
-    /// Writes all of `bytes`; an error is [`StagingError::Io`] with the file's path (once).
+    /// Writes all of `bytes`; an error is [`StagingError::Write`] with the file's path (once).
     fn write_whole(&mut self, bytes: &[u8]) -> Result<(), StagingError> {
         self.out
             .write_all(bytes)
-            .map_err(|source| StagingError::Io {
-                path: self.rel.clone(),
-                source,
-            })?;
+            .map_err(|source| self.staging.write_failed(&self.rel, source))?;
         self.hasher.update(bytes);
         self.bytes += bytes.len() as u64;
         Ok(())
@@ -232,11 +244,8 @@ impl StagingFile<'_> {
     /// Flushes the file (made durable by the commit, see above) and records it (path, blake3, size) among the staged
     /// outputs.
     pub fn finish(mut self) -> Result<OutputFile, StagingError> {
-        let rel = self.rel.clone();
-        let err = |source| StagingError::Io {
-            path: rel.clone(),
-            source,
-        };
+        let (staging, rel) = (self.staging, self.rel.clone());
+        let err = |source| staging.write_failed(&rel, source);
         self.out.flush().map_err(err)?;
         // On Linux one syncfs at commit makes every staged file durable at once (a fdatasync per
         // file cost about 4 ms each here, minutes for a large program); elsewhere each file is
@@ -821,7 +830,7 @@ impl Staging {
                 .lock()
                 .expect("no panics while holding the lock");
             if !folders.contains(p) {
-                create_dir(p, access)?;
+                create_dir(p, access).map_err(|e| self.located(rel, e))?;
                 let mut q = p;
                 while q != self.dir {
                     folders.insert(q.to_path_buf());
@@ -829,7 +838,7 @@ impl Staging {
                 }
             }
         }
-        let file = new_file(&path, access)?;
+        let file = new_file(&path, access).map_err(|e| self.located(rel, e))?;
         Ok(StagingFile {
             staging: self,
             rel: rel.to_string(),
@@ -837,6 +846,33 @@ impl Staging {
             hasher: blake3::Hasher::new(),
             bytes: 0,
         })
+    }
+
+    /// A write of `rel` refused (a full disk, a file-size limit), named as the user knows the
+    /// file: the output folder's path and `rel`, not the staging folder's (which the run removes
+    /// as it stops). tryout18 filled a tmpfs and read "participants/LS-002.html: No space left
+    /// on device", with no folder, and no word that last month's reports were still there.
+    fn write_failed(&self, rel: &str, source: std::io::Error) -> StagingError {
+        let shown = self.final_dir.display().to_string();
+        let kept = if fs::symlink_metadata(&self.final_dir).is_ok() {
+            format!("the previous outputs in {shown} were left as they were")
+        } else {
+            format!("nothing was written to {shown}")
+        };
+        StagingError::Write {
+            path: self.final_dir.join(rel).display().to_string(),
+            source,
+            kept,
+        }
+    }
+
+    /// A [`StagingError::Io`] from making `rel` (or a folder on its way) in staging, told as
+    /// [`Staging::write_failed`] tells a refused write; other errors are passed on.
+    fn located(&self, rel: &str, e: StagingError) -> StagingError {
+        match e {
+            StagingError::Io { source, .. } => self.write_failed(rel, source),
+            other => other,
+        }
     }
 
     /// The output folder this staging folder will replace (links resolved; its current

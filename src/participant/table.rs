@@ -179,6 +179,8 @@ pub struct Table {
     renamed: Vec<(String, &'static str)>,
     /// Each of our columns' header as written.
     headers: BTreeMap<&'static str, String>,
+    /// Every column's header as written, in order (ours and the others).
+    written: Vec<String>,
     /// Set when a number was read with a decimal comma.
     decimal_comma: Cell<bool>,
     /// The first number read with thousands separators, as written, and its value.
@@ -255,6 +257,12 @@ impl Table {
                 first.min(row.line)
             },
         ));
+    }
+
+    /// Field `i` of `row` as written, spaces included.
+    fn raw_field<'t>(&'t self, row: &Row, i: usize) -> Option<&'t str> {
+        let (a, b) = *self.bounds.get(row.first + i)?;
+        Some(&self.text[a..b])
     }
 
     fn field<'t>(&'t self, row: &Row, i: usize) -> Option<&'t str> {
@@ -353,6 +361,7 @@ impl Table {
             units_from_program: Default::default(),
             renamed: Vec::new(),
             headers: BTreeMap::new(),
+            written: Vec::new(),
             decimal_comma: Cell::new(false),
             thousands: RefCell::default(),
             timestamps: Cell::new(false),
@@ -1119,6 +1128,45 @@ fn read_records(
             !is_start(&k)
                 && (k == "date" || spec.aliases.iter().any(|(a, c)| *a == k && *c == "date"))
         });
+    // An energy column headed by its unit alone (`kJ`, `KJ`, `Cal`), as some diaries export
+    // it: refused ("missing required column kcal") while `Energy (kJ)` was read. It is the
+    // energy column in that unit when no other header of the file names one (by our name, an
+    // alias, a unit suffix or the program's mapping). `kcal` alone is our own name already.
+    let resolves_to = |w: &str, col: &str| {
+        let (key, _) = header_key(w);
+        let via = |k: &str| k == col || spec.aliases.iter().any(|(a, c)| *a == k && *c == col);
+        user_map
+            .and_then(|m| m.get(&key))
+            .and_then(|t| spec.mapping_target(t))
+            .is_some_and(|m| m.0 == col)
+            || via(&key)
+            || key.rsplit_once('_').is_some_and(|(base, _)| via(base))
+    };
+    let bare_unit = |w: &str| {
+        let (key, unit) = header_key(w);
+        let allowed = spec
+            .header_units
+            .iter()
+            .find(|h| h.0 == "kcal")
+            .map_or(&[][..], |h| h.1);
+        (unit.is_none() && key != "kcal" && allowed.contains(&key.as_str())).then_some(key)
+    };
+    let bare_energy: Option<(usize, String)> = match written
+        .iter()
+        .enumerate()
+        .filter_map(|(i, w)| bare_unit(w).map(|k| (i, k)))
+        .collect::<Vec<_>>()[..]
+    {
+        [(i, ref k)]
+            if !written
+                .iter()
+                .enumerate()
+                .any(|(j, w)| j != i && resolves_to(w, "kcal")) =>
+        {
+            Some((i, k.clone()))
+        }
+        _ => None,
+    };
     for (i, name) in written.iter().enumerate() {
         let (key, unit) = header_key(name);
         let ours = |k: &str| spec.all_columns().find(|c| *c == k);
@@ -1141,6 +1189,12 @@ fn read_records(
             known = None;
         }
         let mut unit = unit;
+        if known.is_none()
+            && let Some((_, u)) = bare_energy.as_ref().filter(|b| b.0 == i)
+        {
+            known = Some("kcal");
+            unit = Some(u.clone());
+        }
         // A unit named by the mapping (`"Weight": weight (kg)`) is the unit of a column of
         // bare numbers: applied below, once the file's own columns are known.
         if let Some((c, Some(u))) = &mapped {
@@ -1551,6 +1605,7 @@ fn read_records(
         units,
         units_from_program,
         renamed,
+        written: written.clone(),
         header_line,
         dates_in_utc,
         utc_spans,
@@ -3401,6 +3456,45 @@ impl Cells<'_> {
         }
     }
 
+    /// The likely cause of `col` not reading, when it is text that starts with a space right
+    /// after a text field (`2026-03-02,walk, brisk,30,` under `date,activity,minutes,met,notes`,
+    /// `brisk` in `minutes`): a delimiter inside the text before it, which split it across two
+    /// columns and moved every later value one column on, so the row has the header's width
+    /// and nothing else tells of it (a space after a comma is how people write a comma in
+    /// text; `kg,clinic` is two values). Said as how to write that value.
+    fn split_text_before(&self, col: &str) -> Option<String> {
+        let i = *self.table.columns.get(col)?;
+        let prev_i = i.checked_sub(1)?;
+        let raw = self.table.raw_field(self.row, i)?;
+        let text = |t: &str| {
+            t.chars().any(char::is_alphabetic)
+                && numeric_parts(t).is_none()
+                && parse_when(t, self.opts).is_none()
+        };
+        if !raw.starts_with(' ') || !text(raw.trim()) {
+            return None;
+        }
+        let prev = self.table.field(self.row, prev_i)?;
+        if !text(prev) {
+            return None;
+        }
+        let d = char::from(self.table.delimiter);
+        let joined = format!("{prev}{d}{}", raw.trim_end());
+        let value = self
+            .table
+            .written
+            .get(prev_i)
+            .filter(|h| !h.trim().is_empty())
+            .map_or_else(
+                || format!("value in field {i}"),
+                |h| format!("`{}` value", h.trim()),
+            );
+        Some(format!(
+            "the `{d}` in the {value} `{joined}` is likely read as a delimiter, moving `{}` and every value after it one column on: quote the value: `\"{joined}\"` (or write it without the `{d}`)",
+            raw.trim()
+        ))
+    }
+
     /// Reads `s` as the number of `col`, warning (with `consequence`) when it is not one.
     pub fn parse_number(
         &self,
@@ -3453,7 +3547,10 @@ impl Cells<'_> {
                     "value" => ("5.7", "%"),
                     _ => ("72.5", "kg"),
                 };
-                let hint = match e {
+                let split = matches!(e, NumberError::NotANumber)
+                    .then(|| self.split_text_before(col))
+                    .flatten();
+                let hint = split.unwrap_or_else(|| match e {
                     NumberError::NotANumber if unit.is_empty() => {
                         format!("write a number such as `{example}` (no words)")
                     }
@@ -3461,7 +3558,7 @@ impl Cells<'_> {
                         "write a number such as `{example}` (no words; where a unit is allowed, after the number: `{example} {unit}`)"
                     ),
                     _ => e.hint().to_string(),
-                };
+                });
                 diags.push(
                     self.warn(col, format!("{what} in `{col}`; {consequence}"))
                         .expected(format!("a number with a decimal point, e.g. `{example}`"))

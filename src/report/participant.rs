@@ -292,11 +292,19 @@ pub fn build(
     };
     let (adherence_view, activity_chart) = match &adherence_clipped {
         Some(a) => {
+            // The days the period's rates are taken over, as the module counts them: from
+            // enrolment (or the period's start) to the period's end or the day they left.
+            let last = match p.withdrew {
+                Some(w) if w < plan.period.to => w,
+                _ => plan.period.to,
+            };
+            let days = (last - plan.period.from.max(p.enrolled)).num_days() + 1;
             let (view, chart) = adherence_section(
                 a,
                 p.targets.activity_minutes_per_week,
                 &unread,
                 &super::ProgramView::new(plan).period_label,
+                days,
             );
             (Some(view), Some(chart))
         }
@@ -1555,28 +1563,52 @@ fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
     }
 }
 
+/// The fewest days of a period over which the report gives a rate per week (see
+/// [`adherence_section`]).
+const MIN_DAYS_FOR_A_WEEKLY_RATE: i64 = 7;
+
 /// The habits section. Its rates are the reporting period's (`period`, as the report's title
 /// names it), the sessions and the longest run since enrolment: each label says which, since
 /// "Weigh-ins per week" beside "attended since you joined" read as the whole program's rate.
+///
+/// `days` is how many days of the period the rates are taken over. Under a week
+/// ([`MIN_DAYS_FOR_A_WEEKLY_RATE`]) no rate per week is shown: the module scales the days it
+/// has to seven, and someone who joined two days before the period ended read "Days with a
+/// weigh-in per week 7.0" and "Activity minutes per week 210 (target 150)" from two 30-minute
+/// walks, a target met that no week has tested. The counts over those days are shown instead,
+/// as a practitioner reads a first few days (common practice: a weekly figure is a week's).
 fn adherence_section(
     a: &AdherenceResults,
     target: f64,
     unread: &ActivityUnread,
     period: &str,
+    days: i64,
 ) -> (AdherenceView, Chart) {
     let mut items = Vec::new();
     let f1 = |v: Option<f64>| v.map(|v| fmt::fixed(v, 1));
-    if let Some(v) = f1(a.weigh_ins_per_week) {
-        items.push(Kv::new(
-            &format!("Days with a weigh-in per week, {period}"),
-            &v,
-        ));
-    }
-    if let Some(v) = f1(a.food_log_days_per_week) {
-        items.push(Kv::new(
-            &format!("Days with a food log per week, {period}"),
-            &v,
-        ));
+    let short = (1..MIN_DAYS_FOR_A_WEEKLY_RATE).contains(&days);
+    let day_s = |n: i64| format!("{n} {}", if n == 1 { "day" } else { "days" });
+    // The count behind a rate over `days` (the module's rate × days / 7).
+    let count = |rate: f64| rate * days as f64 / 7.0;
+    let no_rate =
+        format!("too few days for a rate per week, which needs {MIN_DAYS_FOR_A_WEEKLY_RATE}");
+    for (rate, what) in [
+        (a.weigh_ins_per_week, "a weigh-in"),
+        (a.food_log_days_per_week, "a food log"),
+    ] {
+        let Some(rate) = rate else { continue };
+        if short {
+            items.push(Kv::new(
+                &format!("Days with {what}, {period}"),
+                &format!(
+                    "{} of {}; {no_rate}",
+                    fmt::fixed(count(rate), 0),
+                    day_s(days)
+                ),
+            ));
+        } else if let Some(v) = f1(Some(rate)) {
+            items.push(Kv::new(&format!("Days with {what} per week, {period}"), &v));
+        }
     }
     // Never "0 minutes" when the log could not be read or there is none (the module then gives
     // no figure): say so instead.
@@ -1597,6 +1629,21 @@ fn adherence_section(
                 fmt::int(*n as f64),
                 if *n == 1 { "" } else { "s" }
             ),
+            ActivityUnread::Rows(n) if short => format!(
+                "{} in {} (target {} a week; {no_rate}); {} activity row{} could not be read and {} not counted",
+                fmt::fixed(count(v), 0),
+                day_s(days),
+                fmt::fixed(target, 0),
+                fmt::int(*n as f64),
+                if *n == 1 { "" } else { "s" },
+                if *n == 1 { "is" } else { "are" }
+            ),
+            ActivityUnread::Nothing if short => format!(
+                "{} in {} (target {} a week; {no_rate})",
+                fmt::fixed(count(v), 0),
+                day_s(days),
+                fmt::fixed(target, 0)
+            ),
             ActivityUnread::Rows(n) => format!(
                 "{} (target {}); {} activity row{} could not be read and {} not counted",
                 fmt::fixed(v, 0),
@@ -1613,10 +1660,12 @@ fn adherence_section(
                 fmt::fixed(target, 0)
             ),
         };
-        items.push(Kv::new(
-            &format!("Activity minutes per week (moderate-equivalent), {period}"),
-            &text,
-        ));
+        let label = if short && !matches!(unread, ActivityUnread::File | ActivityUnread::NoLog) {
+            format!("Activity minutes (moderate-equivalent), {period}")
+        } else {
+            format!("Activity minutes per week (moderate-equivalent), {period}")
+        };
+        items.push(Kv::new(&label, &text));
     }
     if let (Some(att), Some(off)) = (a.sessions_attended_to_date, a.sessions_offered_to_date)
         && off > 0.0
@@ -1728,7 +1777,7 @@ mod activity_unread_tests {
             ..AdherenceResults::default()
         };
         let (view, chart) =
-            adherence_section(&adherence, 150.0, &ActivityUnread::NoLog, "June 2026");
+            adherence_section(&adherence, 150.0, &ActivityUnread::NoLog, "June 2026", 30);
         let Chart::Bars(bars) = &chart else {
             panic!("a bar chart")
         };
@@ -1740,7 +1789,7 @@ mod activity_unread_tests {
         );
         // Someone who logged and did nothing that week still gets a bar of 0.
         let (_, chart) =
-            adherence_section(&adherence, 150.0, &ActivityUnread::Nothing, "June 2026");
+            adherence_section(&adherence, 150.0, &ActivityUnread::Nothing, "June 2026", 30);
         let Chart::Bars(bars) = &chart else {
             panic!("a bar chart")
         };
@@ -1752,8 +1801,13 @@ mod activity_unread_tests {
             activity_minutes_per_week: Some(minutes),
             ..AdherenceResults::default()
         };
-        let (view, _) =
-            adherence_section(&adherence, 150.0, &activity_unread(diags), "September 2026");
+        let (view, _) = adherence_section(
+            &adherence,
+            150.0,
+            &activity_unread(diags),
+            "September 2026",
+            30,
+        );
         view.items
             .iter()
             .find(|k| k.label.starts_with("Activity minutes"))
@@ -1862,6 +1916,7 @@ mod activity_unread_tests {
             150.0,
             &ActivityUnread::Nothing,
             "September 2026",
+            30,
         );
         let items: Vec<(String, String)> = view
             .items
@@ -1892,13 +1947,82 @@ mod activity_unread_tests {
             longest_weigh_in_streak_days: Some(1.0),
             ..AdherenceResults::default()
         };
-        let (view, _) = adherence_section(&one, 150.0, &ActivityUnread::Nothing, "May 2026");
+        let (view, _) = adherence_section(&one, 150.0, &ActivityUnread::Nothing, "May 2026", 30);
         let streak = view
             .items
             .iter()
             .find(|k| k.label.starts_with("Longest run"))
             .unwrap();
         assert_eq!(streak.value, "1 day");
+    }
+
+    /// A participant with two days in the period (joined two days before it ended, or a
+    /// two-day program) read "Days with a weigh-in per week 7.0" and "Activity minutes per week
+    /// 210 (target 150)" from two 30-minute walks: rates scaled up from two days, a target met
+    /// that no week has tested. Under 7 days the counts over those days are shown, saying why
+    /// there is no weekly rate; from 7 days on the rates are as before.
+    #[test]
+    fn under_a_week_of_days_the_habits_are_counts_not_weekly_rates() {
+        let adherence = AdherenceResults {
+            weigh_ins_per_week: Some(7.0),
+            food_log_days_per_week: Some(3.5),
+            activity_minutes_per_week: Some(210.0),
+            ..AdherenceResults::default()
+        };
+        let items = |days: i64, unread: &ActivityUnread| -> Vec<(String, String)> {
+            adherence_section(&adherence, 150.0, unread, "May 2026", days)
+                .0
+                .items
+                .iter()
+                .map(|k| (k.label.clone(), k.value.clone()))
+                .collect()
+        };
+        let why = "too few days for a rate per week, which needs 7";
+        assert_eq!(
+            items(2, &ActivityUnread::Nothing),
+            [
+                (
+                    "Days with a weigh-in, May 2026".to_string(),
+                    format!("2 of 2 days; {why}")
+                ),
+                (
+                    "Days with a food log, May 2026".to_string(),
+                    format!("1 of 2 days; {why}")
+                ),
+                (
+                    "Activity minutes (moderate-equivalent), May 2026".to_string(),
+                    format!("60 in 2 days (target 150 a week; {why})")
+                ),
+            ]
+        );
+        let rows = items(2, &ActivityUnread::Rows(3));
+        assert_eq!(
+            rows[2].1,
+            format!(
+                "60 in 2 days (target 150 a week; {why}); 3 activity rows could not be read and are not counted"
+            )
+        );
+        // One day: "1 day".
+        let one = items(1, &ActivityUnread::Nothing);
+        assert!(one[0].1 == format!("1 of 1 day; {why}"), "{one:?}");
+        // A week or more: the rates.
+        assert_eq!(
+            items(7, &ActivityUnread::Nothing),
+            [
+                (
+                    "Days with a weigh-in per week, May 2026".to_string(),
+                    "7.0".to_string()
+                ),
+                (
+                    "Days with a food log per week, May 2026".to_string(),
+                    "3.5".to_string()
+                ),
+                (
+                    "Activity minutes per week (moderate-equivalent), May 2026".to_string(),
+                    "210 (target 150)".to_string()
+                ),
+            ]
+        );
     }
 
     /// Sample program, April 2026, SG-001: BMI 29.97 printed "30.0 kg/m²; your BMI is in the

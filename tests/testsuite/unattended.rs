@@ -254,15 +254,29 @@ fn a_file_size_limit_fails_the_run_with_a_message_and_keeps_the_previous_output(
     assert_eq!(o.status.code(), Some(6), "{o:?}");
     assert!(stderr.contains("File too large"), "{stderr}");
     assert!(stderr.contains("ulimit -f"), "the limit is named: {stderr}");
-    // The file is named once: "participants/A.html: File too large …".
+    // The file is named once, as the user knows it (the output folder's path and the file,
+    // not the staging folder's "participants/A.html"), and the previous outputs are said to be
+    // there still: "…/reports/participants/A.html: File too large …; the previous outputs in
+    // …/reports were left as they were".
     let line = stderr
         .lines()
         .find(|l| l.contains("writing outputs failed: "))
         .expect("the failed write is reported");
     let named = line.split("writing outputs failed: ").nth(1).unwrap();
     let path = named.split(": ").next().unwrap();
-    assert!(path.starts_with("participants/"), "{line}");
+    let shown = std::fs::canonicalize(&out).unwrap();
+    let shown = shown.display().to_string();
+    assert!(
+        path.starts_with(&format!("{shown}/participants/")) && path.ends_with(".html"),
+        "{line}"
+    );
     assert!(!named[path.len()..].contains(path), "named twice: {line}");
+    assert!(
+        named.ends_with(&format!(
+            "; the previous outputs in {shown} were left as they were"
+        )),
+        "{line}"
+    );
     assert_eq!(tree_hashes(&out), before);
     no_leftovers(out.parent().unwrap(), "reports");
 }
@@ -290,9 +304,18 @@ fn a_write_refused_in_a_streamed_metrics_file_names_the_file() {
         .unwrap();
     let stderr = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(6), "{o:?}");
+    // Named with the output folder's path (it does not exist yet: nothing was written there).
+    let shown = std::fs::canonicalize(out.parent().unwrap())
+        .unwrap()
+        .join("reports");
+    let shown = shown.display().to_string();
     assert!(
-        stderr.contains("writing outputs failed: metrics/"),
+        stderr.contains(&format!("writing outputs failed: {shown}/metrics/")),
         "the file is named: {stderr}"
+    );
+    assert!(
+        stderr.contains(&format!("; nothing was written to {shown}")),
+        "{stderr}"
     );
     assert!(stderr.contains("ulimit -f"), "the limit is named: {stderr}");
     assert!(!out.exists(), "no output was left");

@@ -2839,3 +2839,128 @@ fn a_comma_inside_a_label_is_a_field_too_many_at_the_comma() {
         [(Some(3), Some(4), Some("source".to_string()))]
     );
 }
+
+/// An unquoted comma inside a text value that leaves the row with exactly the header's number
+/// of fields (`2026-03-02,walk, brisk,30,` under `date,activity,minutes,met,notes`: the empty
+/// note absorbs the extra field) read shifted, with "not a number in `minutes`" at ` brisk`
+/// and a hint to write a number "(no words)": nothing named the comma. The warning now says
+/// the `,` in `walk, brisk` is likely the cause and how to quote it. A number column holding a
+/// word with no text before it (`abc`) keeps its hint.
+#[test]
+fn a_comma_inside_a_label_that_keeps_the_header_s_width_is_named_as_the_cause() {
+    let text = "date,activity,minutes,met,notes\n\
+                2026-05-02,walk, brisk,30,\n\
+                2026-05-03,Cycling,abc,6,\n\
+                2026-05-04,Walking,45,3.5,\n";
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    let got: Vec<(NaiveDate, f64)> = a.iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 4), 45.0)]);
+    let warnings: Vec<&Diagnostic> = diags
+        .iter()
+        .filter(|x| x.severity == Severity::Warning)
+        .collect();
+    assert_eq!(warnings.len(), 2, "{diags:#?}");
+    let w = warnings[0];
+    assert_eq!((w.line, w.column), (Some(2), Some(3)));
+    assert!(w.message.starts_with("not a number in `minutes`"), "{w}");
+    assert_eq!(
+        w.hint.as_deref(),
+        Some(
+            "the `,` in the `activity` value `walk, brisk` is likely read as a delimiter, moving `brisk` and every value after it one column on: quote the value: `\"walk, brisk\"` (or write it without the `,`)"
+        )
+    );
+    let w = warnings[1];
+    assert_eq!((w.line, w.column), (Some(3), Some(3)));
+    assert!(
+        w.hint
+            .as_deref()
+            .is_some_and(|h| h.starts_with("write a number such as `45`")),
+        "{w}"
+    );
+    // Quoted as the hint says, the row is read.
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        &text.replace("walk, brisk", "\"walk, brisk\""),
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(a.len(), 2, "{diags:#?}");
+    assert_eq!((a[0].date, a[0].minutes), (d(2026, 5, 2), 30.0));
+
+    // Intake: `Toast, buttered` before kcal, the notes empty.
+    let mut diags = Vec::new();
+    let days = parse_intake(
+        "Date,Food,kcal,Notes\n2026-05-02,Toast, buttered,250\n2026-05-03,Soup,400,\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(days.len(), 1);
+    let w = diags
+        .iter()
+        .find(|x| x.severity == Severity::Warning)
+        .expect("a warning");
+    assert!(
+        w.hint
+            .as_deref()
+            .is_some_and(|h| h.starts_with("the `,` in the `Food` value `Toast, buttered`")),
+        "{w}"
+    );
+}
+
+/// An intake file whose energy column is headed by its unit alone (`kJ`, `KJ`, `Cal`) was
+/// refused ("missing required column `kcal`") while `Energy (kJ)` was read. It is now the
+/// energy column in that unit, converted as `Energy (kJ)` is; beside another energy column,
+/// that one is read and the unit alone is left as a column of another export.
+#[test]
+fn an_energy_column_headed_by_its_unit_alone_is_read_in_that_unit() {
+    let parse = |text: &str| {
+        let c = ctx("intake.csv");
+        let mut diags = Vec::new();
+        let v = parse_intake(text, &CsvOptions::default(), &c, &window(), &mut diags);
+        (v, diags, c.take_notes())
+    };
+    for header in ["kJ", "KJ", "kj", " kJ "] {
+        let (v, d, notes) = parse(&format!(
+            "date,{header}\n2026-04-01,8000\n2026-04-02,7600\n2026-04-03,9100\n"
+        ));
+        assert!(d.is_empty(), "{header}: {d:#?}");
+        let got: Vec<f64> = v.expect(header).iter().map(|x| x.kcal).collect();
+        assert_eq!(
+            got,
+            [8000.0 / 4.184, 7600.0 / 4.184, 9100.0 / 4.184],
+            "{header}"
+        );
+        assert!(
+            notes.iter().any(|n| n.message
+                == format!(
+                    "column `{}` read as `kcal`; `kcal` in kJ (from the header), converted to kcal at 4.184 kJ/kcal",
+                    header.trim()
+                )),
+            "{header}: {notes:#?}"
+        );
+    }
+    // `kcal` and `Cal` alone are kcal.
+    for header in ["kcal", "KCAL", "Cal"] {
+        let (v, d, _) = parse(&format!("date,{header}\n2026-04-01,1850\n"));
+        assert!(d.is_empty(), "{header}: {d:#?}");
+        assert_eq!(v.expect(header)[0].kcal, 1850.0, "{header}");
+    }
+    // Beside an energy column of its own name, the unit alone is not read.
+    let (v, d, _) = parse("date,Energy (kcal),kJ\n2026-04-01,1850,7740\n");
+    assert!(d.is_empty(), "{d:#?}");
+    assert_eq!(v.unwrap()[0].kcal, 1850.0);
+}
