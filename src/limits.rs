@@ -4,7 +4,7 @@
 //! wrong kind dropped into a participant folder, or a hostile one) could exhaust memory. The
 //! limits are far above any real participant's data: a CSV of 64 MiB holds well over a million
 //! daily rows, and a profile or program file is a few kilobytes. They are documented in the
-//! README ("Unattended runs, shards and scheduling").
+//! docs/GUIDE.md ("Unattended runs, shards and scheduling").
 
 use std::io::Read;
 use std::path::Path;

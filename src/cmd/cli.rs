@@ -232,7 +232,7 @@ fn exit_codes_help() -> String {
     // no pointer from --help to them).
     s.push_str(
         "\nStart here: `cohortpress demo-program DIR` writes a small fictional program to copy from.\n\
-         README.md (beside the source) describes program.yaml, each participant file and its columns.\n",
+         docs/GUIDE.md (beside the source) describes program.yaml, each participant file and its columns.\n",
     );
     s
 }
@@ -256,11 +256,11 @@ mod tests {
     fn help_says_where_to_start() {
         let help = Cli::command().render_long_help().to_string();
         assert!(help.contains("cohortpress demo-program DIR"), "{help}");
-        assert!(help.contains("README.md"), "{help}");
+        assert!(help.contains("docs/GUIDE.md"), "{help}");
     }
 
     /// `run --help` said "--only …: the group report then covers only them", while a run with
-    /// `--only` writes no group report at all (README, "Across releases").
+    /// `--only` writes no group report at all (docs/GUIDE.md, "Across releases").
     #[test]
     fn run_help_says_only_writes_no_group_report() {
         let help = run_help();

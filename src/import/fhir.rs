@@ -66,7 +66,7 @@ pub struct Taken {
     pub time: Option<String>,
     /// The timestamp as the resource wrote it, when it is stamped in UTC (`Z`, `+00:00`).
     /// It goes into the CSV whole, so that a run finds its local day with the program's
-    /// `input.time_zone` as it does for any UTC time in a CSV export (README, "dates"); written
+    /// `input.time_zone` as it does for any UTC time in a CSV export (docs/GUIDE.md, "dates"); written
     /// as a bare day and clock time it would have been read as local, and an evening weigh-in
     /// west of Greenwich would have counted on the next day.
     pub utc_stamp: Option<String>,
@@ -948,7 +948,7 @@ pub fn import(
         .expect("string");
     }
     if !out.join("program.yaml").exists() {
-        s.push_str("\nthe folder has no program.yaml yet: write one (see the README) before `check` or `run`");
+        s.push_str("\nthe folder has no program.yaml yet: write one (see “program.yaml” in docs/GUIDE.md) before `check` or `run`");
     }
     s.push_str("\nnext: `cohortpress check` the program, and check each profile's `enrolled` date");
     Ok(s)

@@ -817,7 +817,7 @@ pub fn load_opened(
                     "participant folder `{id}` has no profile.yaml; the participant cannot be used"
                 ))
                 .expected("a profile.yaml with id, sex, birth_date or age, height, enrolled")
-                .hint("add profile.yaml to the folder (see “profile.yaml” in the README)"),
+                .hint("add profile.yaml to the folder (see “profile.yaml” in docs/GUIDE.md)"),
             );
             None
         }

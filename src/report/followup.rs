@@ -394,7 +394,7 @@ fn pretty_dates(s: &str) -> String {
     fmt::tidy_message(s)
 }
 
-/// Who should see the list, and why (printed on it and in the README).
+/// Who should see the list, and why (printed on it and in docs/GUIDE.md).
 pub const PURPOSE: &str = "This list is for the program's clinician (or the licensed professional the program names), so that each participant whose records raised a clinical flag is offered a review. It names people and holds health data: keep it with clinical records, share it with nobody else, and do not use it to judge or rank participants. Flags come from self-reported records and published cut-offs; they call for a conversation, not a diagnosis.";
 
 /// The list's opening line: how many participants it holds and how many with a new flag. It

@@ -892,7 +892,7 @@ pub fn summary_row(
     let trend_series = trend.map(|t| &t.weight_trend);
     // Outcome weight: the current trend weight (the smoothed level on the last weigh-in day
     // of the period), if that weigh-in lies in the last 28 days of the period; otherwise the
-    // outcome is missing (rule documented in the README).
+    // outcome is missing (rule documented in docs/GUIDE.md).
     let last_weigh_in = data
         .weights
         .iter()
