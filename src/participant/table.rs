@@ -1820,18 +1820,7 @@ fn read_records(
                 ))
                 .at(line, None)
                 .expected(fields(names.len()))
-                .found(format!(
-                    "{}: `{}`",
-                    fields(rec.len()),
-                    shorten(
-                        &rec.iter()
-                            .take(MAX_CSV_COLUMNS + 1)
-                            .map(str::trim)
-                            .collect::<Vec<_>>()
-                            .join(&delim_text),
-                        200
-                    )
-                ));
+                .found(row_as_found(&rec, &delim_text));
             let split_decimal = rec.len() == names.len() + 1
                 && delimiter == b','
                 && rec
@@ -2396,6 +2385,23 @@ fn split_text_at(rec: &csv::StringRecord, opts: &CsvOptions) -> Option<usize> {
     }
 }
 
+/// A row as a shape warning's `found` gives it: its number of fields and its first fields
+/// joined by the file's delimiter (cut at 200 characters).
+fn row_as_found(rec: &csv::StringRecord, delimiter: &str) -> String {
+    format!(
+        "{}: `{}`",
+        fields(rec.len()),
+        shorten(
+            &rec.iter()
+                .take(MAX_CSV_COLUMNS + 1)
+                .map(str::trim)
+                .collect::<Vec<_>>()
+                .join(delimiter),
+            200
+        )
+    )
+}
+
 /// The warning for a row of one field too many whose extra field is a text value split by an
 /// unquoted delimiter at field `i` (0-based): the line and the field where the delimiter is,
 /// and how to write the value.
@@ -2419,18 +2425,7 @@ fn split_text_warning(
         ))
         .at(line, Some(i as u64 + 1))
         .expected(fields(width))
-        .found(format!(
-            "{}: `{}`",
-            fields(rec.len()),
-            shorten(
-                &rec.iter()
-                    .take(MAX_CSV_COLUMNS + 1)
-                    .map(str::trim)
-                    .collect::<Vec<_>>()
-                    .join(&d.to_string()),
-                200
-            )
-        ))
+        .found(row_as_found(rec, &d.to_string()))
         .hint(format!(
             "quote the value: `\"{joined}\"` (or write it without the `{d}`)"
         ));
