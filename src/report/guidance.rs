@@ -1085,10 +1085,8 @@ fn maintain(
     // ceiling: someone at BMI 50 who reached a 5 % target read "The aim from here is to hold
     // your weight, not to lose more" and "it does not need to" (attack18). Holding the loss is
     // the aim the report gives; a further target is for the person and the program staff.
-    let loss_still_offered = why == MaintainWhy::TargetReached
-        && state
-            .bmi
-            .is_some_and(|b| !bmi_below(b, t.loss_cut(state.older)));
+    let loss_still_offered =
+        why == MaintainWhy::TargetReached && state.bmi.is_some() && !bmi_rules_out_loss(state, t);
     let clinician_decides = loss_still_offered && f.lab_in_diabetes_range;
     g.paragraphs.push(match why {
         MaintainWhy::TargetReached if clinician_decides => format!(
