@@ -1898,6 +1898,20 @@ fn span_minutes(c: &Cells<'_>, d: &mut Vec<Diagnostic>) -> Option<(f64, Option<W
     {
         (end, end_utc) = at("end", next, d)?;
     }
+    // The same for two local times of day (`23:30` to `00:15` under `Start Time`, `End Time`
+    // beside a `Date`): such a row was dropped as ending before it starts, while the UTC pair
+    // was read. One rule for both: an end written as a time alone that is more than 12 hours
+    // before the start is on the next day.
+    if start_utc.is_none()
+        && end_utc.is_none()
+        && time_only(c.text("end").unwrap_or_default().trim()).is_some()
+        && let (Some(t0), Some(t1)) = (start.time, end.time)
+        && end.date == start.date
+        && t0 - t1 > chrono::TimeDelta::hours(12)
+        && let Some(next) = end.date.succ_opt()
+    {
+        end.date = next;
+    }
     let (start_raw, end_raw) = (
         c.text(start_col).unwrap_or_default(),
         c.text("end").unwrap_or_default(),

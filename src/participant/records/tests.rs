@@ -2398,22 +2398,33 @@ fn an_activity_file_with_start_and_end_and_no_duration_reads_end_less_start() {
     let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
     assert_eq!(got, [(d(2026, 5, 4), 45.0), (d(2026, 5, 5), 40.0)]);
     // A date column of its own beside the start and end, which are times of that day: the
-    // file was refused, `date` named twice (`Date` and `Start Time`). A time-only end before
-    // its start is not taken to be after midnight.
+    // file was refused, `date` named twice (`Date` and `Start Time`). A time-only end more
+    // than 12 hours before its start is after midnight (it was dropped as ending before it
+    // starts, while the same UTC times were read); one only a little before it is a slip.
     let (a, diags) = activity_or_error(
         "Date,Activity,Start Time,End Time
          2026-05-04,Walking,07:10,07:52
          2026-05-05,Yoga,7:00 PM,7:40 PM
          2026-05-06,Walking,23:30,00:15
+         2026-05-07,Walking,11:40 PM,12:20 AM
+         2026-05-08,Walking,08:00,07:30
 ",
     );
     let got: Vec<(NaiveDate, f64)> = a.unwrap().iter().map(|x| (x.date, x.minutes)).collect();
-    assert_eq!(got, [(d(2026, 5, 4), 42.0), (d(2026, 5, 5), 40.0)]);
+    assert_eq!(
+        got,
+        [
+            (d(2026, 5, 4), 42.0),
+            (d(2026, 5, 5), 40.0),
+            (d(2026, 5, 6), 45.0),
+            (d(2026, 5, 7), 40.0)
+        ]
+    );
     assert_eq!(diags.len(), 1, "{diags:#?}");
-    assert_eq!((diags[0].line, diags[0].column), (Some(4), Some(4)));
+    assert_eq!((diags[0].line, diags[0].column), (Some(6), Some(4)));
     assert_eq!(
         diags[0].found.as_deref(),
-        Some("start `23:30`, end `00:15`")
+        Some("start `08:00`, end `07:30`")
     );
     // A start beside the date column and a duration: read, the start not (the file was
     // refused, `date` named twice).
@@ -2744,7 +2755,22 @@ fn activity_times_of_day_under_a_utc_header_are_converted_to_the_programs_zone()
     let local = utc.replace(" (UTC)", "");
     let (got, warnings, _) = read(&local, Some("America/New_York"));
     assert_eq!(got, [(d(2026, 9, 14), 40.0), (d(2026, 9, 15), 30.0)]);
-    assert_eq!(warnings, [(Some(4), Some(3), ends_before)]);
+    assert_eq!(warnings, [(Some(4), Some(3), ends_before.clone())]);
+    // Local times across midnight: the same rule as UTC ones (the hour counts on the start's
+    // day; the slip is dropped). They were dropped as ending before they start.
+    let local_across = across.replace(" (UTC)", "");
+    let (got, warnings, _) = read(&local_across, Some("America/New_York"));
+    assert_eq!(got, [(d(2026, 9, 14), 60.0)]);
+    assert_eq!(warnings, [(Some(3), Some(3), ends_before.clone())]);
+    let (got, ..) = read(&local_across, None);
+    assert_eq!(got, [(d(2026, 9, 14), 60.0)]);
+    // On the night the clocks go back (Europe/Berlin, 25 Oct 2026, 03:00 → 02:00; IANA
+    // tzdata), 23:30 to 03:30 lasts five hours, not four.
+    let (got, ..) = read(
+        "Date,Start Time,End Time,Activity\n2026-10-24,23:30,03:30,Walking\n",
+        Some("Europe/Berlin"),
+    );
+    assert_eq!(got, [(d(2026, 10, 24), 300.0)]);
 }
 
 /// An unquoted comma inside a text value, on a row whose last column is empty
