@@ -763,3 +763,90 @@ fn participants_csv_counts_each_files_rows_in_the_file_and_used() {
         "{field}"
     );
 }
+
+/// Every description in the descriptor reads as one sentence: the row-count columns'
+/// descriptions held runs of 18 spaces (a string continued over lines without `\`), which
+/// `frictionless describe` and R's `frictionless` print as they are. And the package's own
+/// description says which of its files may go to the sponsor: it said every file it describes
+/// was identified and none went to the sponsor, while it describes `group.json`, the
+/// de-identified group statistics the README marks as sponsor material. Without a group report
+/// (`--only`) every file is identified, and the description says so.
+#[test]
+fn the_descriptors_text_has_no_runs_of_spaces_and_names_the_one_file_for_the_sponsor() {
+    fn texts<'a>(v: &'a Value, path: String, out: &mut Vec<(String, &'a str)>) {
+        match v {
+            Value::String(s) => out.push((path, s)),
+            Value::Array(a) => a
+                .iter()
+                .enumerate()
+                .for_each(|(i, x)| texts(x, format!("{path}[{i}]"), out)),
+            Value::Object(o) => o
+                .iter()
+                .for_each(|(k, x)| texts(x, format!("{path}.{k}"), out)),
+            _ => {}
+        }
+    }
+    let package = read_json(&sample_metrics().join("datapackage.json"));
+    let mut all = Vec::new();
+    texts(&package, String::new(), &mut all);
+    let spaced: Vec<_> = all.iter().filter(|(_, s)| s.contains("  ")).collect();
+    assert!(spaced.is_empty(), "{spaced:#?}");
+    let fields = package["resources"][0]["schema"]["fields"]
+        .as_array()
+        .unwrap();
+    let used = fields
+        .iter()
+        .find(|f| f["name"] == "weights_rows_used")
+        .unwrap();
+    assert_eq!(
+        used["description"],
+        "rows of weights.csv used: the weigh-ins kept after duplicates and the rows outside the \
+         participant's window are left out; weights_rows_in_file minus this is the rows dropped \
+         for any reason, each named in data-quality.csv (capped per kind); 0 when the file is \
+         refused as a whole, empty when it is absent"
+    );
+    let description = package["description"].as_str().unwrap();
+    assert!(
+        package["resources"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|r| r["path"] == "group.json")
+    );
+    assert!(
+        description.contains(
+            "Every file described here but group.json is identified health data for the \
+             program's own staff and analysts, and none of them goes to the sponsor; group.json \
+             holds the group report's de-identified statistics as it prints them (audited for \
+             small cells) and may go to the sponsor, like the group report."
+        ),
+        "{description}"
+    );
+
+    // A run of hand-picked participants writes no group.json: then every file is identified.
+    let t = crate::harness::ProgramTest::demo(2);
+    let out = t.dir.parent().unwrap().join("only");
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-01",
+        "--formats",
+        "html",
+        "--only",
+        "SG-001",
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let package = read_json(&out.join("metrics/datapackage.json"));
+    assert!(!out.join("metrics/group.json").exists());
+    assert!(
+        package["description"]
+            .as_str()
+            .unwrap()
+            .ends_with("Every file described here is identified health data for the program's own staff and analysts; none goes to the sponsor."),
+        "{}",
+        package["description"]
+    );
+}

@@ -185,7 +185,10 @@ fn only_into_the_programs_own_complete_output_is_a_command_line_error() {
         o.stderr.contains(
             "refusing to replace the complete output in {} with a partial one (--only); give \
              the partial run a folder of its own with --out DIR"
-                .replace("{}", &std::fs::canonicalize(&out).unwrap().to_string_lossy())
+                .replace(
+                    "{}",
+                    &std::fs::canonicalize(&out).unwrap().to_string_lossy()
+                )
                 .as_str()
         ),
         "{}",
