@@ -909,7 +909,10 @@ pub fn datapackage(
              (identified): participant_id, period_from, period_to, enrolled, withdrew, \
              withdrawal_reason, started, completer, groups (the profile's groups: keys), scalars and texts (each \
              [module, {name, label, unit, value, and lower and upper where an interval \
-             exists}]), flags (the flags for a licensed clinician's review), \
+             exists}]), flags (every flag a module raised, each [module, {code, severity, \
+             message}]: severity clinical for a licensed clinician's review, the codes of \
+             clinical_flags in participants.csv, notice for one worth a look, info for \
+             information), \
              flags_at_follow_up (of them, [module, code] of each seen at follow-up only, as \
              clinical_flags_at_follow_up in participants.csv), failures (the modules that \
              failed for this participant) and the row counts of participants.csv \

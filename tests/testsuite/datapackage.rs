@@ -850,3 +850,65 @@ fn the_descriptors_text_has_no_runs_of_spaces_and_names_the_one_file_for_the_spo
         package["description"]
     );
 }
+
+/// `participants.json`'s `flags` hold every flag the modules raised, with its severity (the
+/// sample run has clinical flags, notices and info flags), and the descriptor says so: it
+/// said "the flags for a licensed clinician's review", so an analyst counting clinical flags
+/// from the JSON counted the notices and info flags too. The clinical ones are those of
+/// `participants.csv`'s `clinical_flags`.
+#[test]
+fn the_descriptor_says_participants_json_flags_are_every_flag_with_its_severity() {
+    let metrics = sample_metrics();
+    let records = read_json(&metrics.join("participants.json"));
+    let mut severities = BTreeSet::new();
+    let mut csv = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = csv.headers().unwrap().iter().map(str::to_string).collect();
+    let col = header.iter().position(|h| h == "clinical_flags").unwrap();
+    let clinical_csv: Vec<(String, BTreeSet<String>)> = csv
+        .records()
+        .map(Result::unwrap)
+        .map(|r| {
+            let codes = r[col]
+                .split(';')
+                .filter(|c| !c.is_empty())
+                .map(str::to_string);
+            (r[0].to_string(), codes.collect())
+        })
+        .collect();
+    for record in records.as_array().unwrap() {
+        let mut clinical = BTreeSet::new();
+        for flag in record["flags"].as_array().unwrap() {
+            let severity = flag[1]["severity"].as_str().unwrap();
+            severities.insert(severity.to_string());
+            if severity == "clinical" {
+                clinical.insert(flag[1]["code"].as_str().unwrap().to_string());
+            }
+        }
+        let id = record["participant_id"].as_str().unwrap();
+        let from_csv = &clinical_csv.iter().find(|(p, _)| p == id).unwrap().1;
+        assert_eq!(&clinical, from_csv, "{id}");
+    }
+    assert_eq!(
+        severities,
+        ["clinical", "info", "notice"]
+            .map(String::from)
+            .into_iter()
+            .collect()
+    );
+    let package = read_json(&metrics.join("datapackage.json"));
+    let resource = package["resources"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["path"] == "participants.json")
+        .unwrap();
+    let description = resource["description"].as_str().unwrap();
+    assert!(
+        description.contains(
+            "flags (every flag a module raised, each [module, {code, severity, message}]: \
+             severity clinical for a licensed clinician's review, the codes of clinical_flags \
+             in participants.csv, notice for one worth a look, info for information)"
+        ),
+        "{description}"
+    );
+}
