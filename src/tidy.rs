@@ -826,7 +826,9 @@ pub fn datapackage(
         ),
         DpResource::new(
             "weekly",
-            "every module's weekly series in long form; weeks start on Monday",
+            "every module's weekly series in long form; weeks start on Monday, but a series \
+             whose span starts mid-week (the trend's weight_trend_weekly, from the first \
+             weigh-in) dates that first week by the span's first day (see week_start)",
             vec![
                 id(),
                 DpField::required("module", "string", "module id"),
