@@ -34,6 +34,11 @@ pub enum StagingError {
     /// complete output that a partial run would replace…): nothing was touched.
     #[error("{0}")]
     Refused(String),
+    /// A partial run (`--only`, `--shard`) would replace a complete output: refused whoever
+    /// named the folder, since what is wrong is the partial run's command line (it needs
+    /// `--out DIR` of its own), not `report.out`. Nothing was touched.
+    #[error("{0}")]
+    Partial(String),
     /// An I/O error, with the path (and what a file-size limit means, when that was hit).
     #[error("{path}: {source}{}", io_hint(.source))]
     Io {
@@ -644,7 +649,7 @@ fn check_replaceable(out_dir: &Path, target: &OutputTarget) -> Result<(), Stagin
             Ok(Existing::Ours(OutputScope::Complete, _))
                 if target.scope != OutputScope::Complete =>
             {
-                return Err(StagingError::Refused(format!(
+                return Err(StagingError::Partial(format!(
                     "refusing to replace the complete output in {} with a partial one \
                          ({}); give the partial run a folder of its own with --out DIR",
                     out_dir.display(),

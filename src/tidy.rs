@@ -744,11 +744,17 @@ pub fn datapackage(
         let (file, what) = name.split_once("_rows_").unwrap_or((name, ""));
         let description = if what == "in_file" {
             format!(
-                "data rows of the participant's {file}.csv as the table reader sees them, rows                  dropped for their shape included (not blank lines, a repeated header, title                  lines above the header, the date rows of an export that writes each date on a                  row of its own, or summary rows such as `Average` or a day's `Total`); empty                  when the file is absent or cannot be read as text"
+                "data rows of the participant's {file}.csv as the table reader sees them, rows \
+                 dropped for their shape included (not blank lines, a repeated header, title \
+                 lines above the header, the date rows of an export that writes each date on a \
+                 row of its own, or summary rows such as `Average` or a day's `Total`); empty \
+                 when the file is absent or cannot be read as text"
             )
         } else {
             format!(
-                "rows of {file}.csv used: {}; {file}_rows_in_file minus this is the rows                  dropped for any reason, each named in data-quality.csv (capped per kind); 0                  when the file is refused as a whole, empty when it is absent",
+                "rows of {file}.csv used: {}; {file}_rows_in_file minus this is the rows \
+                 dropped for any reason, each named in data-quality.csv (capped per kind); 0 \
+                 when the file is refused as a whole, empty when it is absent",
                 match file {
                     "weights" =>
                         "the weigh-ins kept after duplicates and the rows outside the participant's window are left out",
@@ -820,7 +826,9 @@ pub fn datapackage(
         ),
         DpResource::new(
             "weekly",
-            "every module's weekly series in long form; weeks start on Monday",
+            "every module's weekly series in long form; weeks start on Monday, but a series \
+             whose span starts mid-week (the trend's weight_trend_weekly, from the first \
+             weigh-in) dates that first week by the span's first day (see week_start)",
             vec![
                 id(),
                 DpField::required("module", "string", "module id"),
@@ -903,7 +911,10 @@ pub fn datapackage(
              (identified): participant_id, period_from, period_to, enrolled, withdrew, \
              withdrawal_reason, started, completer, groups (the profile's groups: keys), scalars and texts (each \
              [module, {name, label, unit, value, and lower and upper where an interval \
-             exists}]), flags (the flags for a licensed clinician's review), \
+             exists}]), flags (every flag a module raised, each [module, {code, severity, \
+             message}]: severity clinical for a licensed clinician's review, the codes of \
+             clinical_flags in participants.csv, notice for one worth a look, info for \
+             information), \
              flags_at_follow_up (of them, [module, code] of each seen at follow-up only, as \
              clinical_flags_at_follow_up in participants.csv), failures (the modules that \
              failed for this participant) and the row counts of participants.csv \
@@ -931,10 +942,22 @@ pub fn datapackage(
         profile: "data-package",
         name: "cohortpress-metrics",
         title: "cohortpress tidy metrics",
-        description: "The tidy metrics of one run (`run`: the tool, program, period, as-of date and \
-                      module settings that made them, as in the output folder's manifest.json). \
-                      Every file described here is identified health data for the program's own \
-                      staff and analysts; none goes to the sponsor.",
+        // group.json is the one de-identified file of metrics/ (README's outputs, marked S):
+        // the descriptor said every file it describes was identified and none went to the
+        // sponsor, while describing group.json too.
+        description: if group {
+            "The tidy metrics of one run (`run`: the tool, program, period, as-of date and module \
+             settings that made them, as in the output folder's manifest.json). Every file \
+             described here but group.json is identified health data for the program's own \
+             staff and analysts, and none of them goes to the sponsor; group.json holds the \
+             group report's de-identified statistics as it prints them (audited for small \
+             cells) and may go to the sponsor, like the group report."
+        } else {
+            "The tidy metrics of one run (`run`: the tool, program, period, as-of date and module \
+             settings that made them, as in the output folder's manifest.json). Every file \
+             described here is identified health data for the program's own staff and \
+             analysts; none goes to the sponsor."
+        },
         run,
         resources,
     };

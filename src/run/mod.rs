@@ -99,7 +99,7 @@ impl From<StagingError> for RunError {
     fn from(e: StagingError) -> Self {
         match e {
             StagingError::Locked(m) => RunError::Locked(m),
-            StagingError::Refused(m) => RunError::Refused {
+            StagingError::Refused(m) | StagingError::Partial(m) => RunError::Refused {
                 message: m,
                 by: Blame::CommandLine,
             },

@@ -137,6 +137,12 @@ impl RunPlan {
     /// folder and who named it: the command line or program.yaml.
     pub fn begin_staging(&self) -> Result<Staging, RunError> {
         Staging::begin(&self.output_target(), self.access).map_err(|e| match e {
+            // `--only` into the program's own complete output: the command line is wrong (it
+            // needs `--out DIR`), not program.yaml, so exit 2 and no program.yaml location.
+            StagingError::Partial(m) => RunError::Refused {
+                message: m,
+                by: Blame::CommandLine,
+            },
             StagingError::Refused(m) if self.out_named_by == "--out" => RunError::Refused {
                 message: m,
                 by: Blame::CommandLine,

@@ -763,3 +763,190 @@ fn participants_csv_counts_each_files_rows_in_the_file_and_used() {
         "{field}"
     );
 }
+
+/// Every description in the descriptor reads as one sentence: the row-count columns'
+/// descriptions held runs of 18 spaces (a string continued over lines without `\`), which
+/// `frictionless describe` and R's `frictionless` print as they are. And the package's own
+/// description says which of its files may go to the sponsor: it said every file it describes
+/// was identified and none went to the sponsor, while it describes `group.json`, the
+/// de-identified group statistics the README marks as sponsor material. Without a group report
+/// (`--only`) every file is identified, and the description says so.
+#[test]
+fn the_descriptors_text_has_no_runs_of_spaces_and_names_the_one_file_for_the_sponsor() {
+    fn texts<'a>(v: &'a Value, path: String, out: &mut Vec<(String, &'a str)>) {
+        match v {
+            Value::String(s) => out.push((path, s)),
+            Value::Array(a) => a
+                .iter()
+                .enumerate()
+                .for_each(|(i, x)| texts(x, format!("{path}[{i}]"), out)),
+            Value::Object(o) => o
+                .iter()
+                .for_each(|(k, x)| texts(x, format!("{path}.{k}"), out)),
+            _ => {}
+        }
+    }
+    let package = read_json(&sample_metrics().join("datapackage.json"));
+    let mut all = Vec::new();
+    texts(&package, String::new(), &mut all);
+    let spaced: Vec<_> = all.iter().filter(|(_, s)| s.contains("  ")).collect();
+    assert!(spaced.is_empty(), "{spaced:#?}");
+    let fields = package["resources"][0]["schema"]["fields"]
+        .as_array()
+        .unwrap();
+    let used = fields
+        .iter()
+        .find(|f| f["name"] == "weights_rows_used")
+        .unwrap();
+    assert_eq!(
+        used["description"],
+        "rows of weights.csv used: the weigh-ins kept after duplicates and the rows outside the \
+         participant's window are left out; weights_rows_in_file minus this is the rows dropped \
+         for any reason, each named in data-quality.csv (capped per kind); 0 when the file is \
+         refused as a whole, empty when it is absent"
+    );
+    let description = package["description"].as_str().unwrap();
+    assert!(
+        package["resources"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|r| r["path"] == "group.json")
+    );
+    assert!(
+        description.contains(
+            "Every file described here but group.json is identified health data for the \
+             program's own staff and analysts, and none of them goes to the sponsor; group.json \
+             holds the group report's de-identified statistics as it prints them (audited for \
+             small cells) and may go to the sponsor, like the group report."
+        ),
+        "{description}"
+    );
+
+    // A run of hand-picked participants writes no group.json: then every file is identified.
+    let t = crate::harness::ProgramTest::demo(2);
+    let out = t.dir.parent().unwrap().join("only");
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-01",
+        "--formats",
+        "html",
+        "--only",
+        "SG-001",
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let package = read_json(&out.join("metrics/datapackage.json"));
+    assert!(!out.join("metrics/group.json").exists());
+    assert!(
+        package["description"]
+            .as_str()
+            .unwrap()
+            .ends_with("Every file described here is identified health data for the program's own staff and analysts; none goes to the sponsor."),
+        "{}",
+        package["description"]
+    );
+}
+
+/// `participants.json`'s `flags` hold every flag the modules raised, with its severity (the
+/// sample run has clinical flags, notices and info flags), and the descriptor says so: it
+/// said "the flags for a licensed clinician's review", so an analyst counting clinical flags
+/// from the JSON counted the notices and info flags too. The clinical ones are those of
+/// `participants.csv`'s `clinical_flags`.
+#[test]
+fn the_descriptor_says_participants_json_flags_are_every_flag_with_its_severity() {
+    let metrics = sample_metrics();
+    let records = read_json(&metrics.join("participants.json"));
+    let mut severities = BTreeSet::new();
+    let mut csv = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header: Vec<String> = csv.headers().unwrap().iter().map(str::to_string).collect();
+    let col = header.iter().position(|h| h == "clinical_flags").unwrap();
+    let clinical_csv: Vec<(String, BTreeSet<String>)> = csv
+        .records()
+        .map(Result::unwrap)
+        .map(|r| {
+            let codes = r[col]
+                .split(';')
+                .filter(|c| !c.is_empty())
+                .map(str::to_string);
+            (r[0].to_string(), codes.collect())
+        })
+        .collect();
+    for record in records.as_array().unwrap() {
+        let mut clinical = BTreeSet::new();
+        for flag in record["flags"].as_array().unwrap() {
+            let severity = flag[1]["severity"].as_str().unwrap();
+            severities.insert(severity.to_string());
+            if severity == "clinical" {
+                clinical.insert(flag[1]["code"].as_str().unwrap().to_string());
+            }
+        }
+        let id = record["participant_id"].as_str().unwrap();
+        let from_csv = &clinical_csv.iter().find(|(p, _)| p == id).unwrap().1;
+        assert_eq!(&clinical, from_csv, "{id}");
+    }
+    assert_eq!(
+        severities,
+        ["clinical", "info", "notice"]
+            .map(String::from)
+            .into_iter()
+            .collect()
+    );
+    let package = read_json(&metrics.join("datapackage.json"));
+    let resource = package["resources"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["path"] == "participants.json")
+        .unwrap();
+    let description = resource["description"].as_str().unwrap();
+    assert!(
+        description.contains(
+            "flags (every flag a module raised, each [module, {code, severity, message}]: \
+             severity clinical for a licensed clinician's review, the codes of clinical_flags \
+             in participants.csv, notice for one worth a look, info for information)"
+        ),
+        "{description}"
+    );
+}
+
+/// `weekly.csv`'s weeks start on Monday except the trend's `weight_trend_weekly`, whose first
+/// week is dated by the trend's first day when that is mid-week (the sample has such rows;
+/// adherence dates the same week by its Monday). The descriptor said "weeks start on Monday"
+/// for the whole file, and the guide that only the report's tables differ.
+#[test]
+fn weekly_csv_weeks_start_on_monday_but_the_trends_first_week_and_the_descriptor_says_so() {
+    use chrono::Datelike;
+    let metrics = sample_metrics();
+    let mut csv = csv::Reader::from_path(metrics.join("weekly.csv")).unwrap();
+    let mut not_monday = BTreeSet::new();
+    let mut rows = 0;
+    for r in csv.records().map(Result::unwrap) {
+        let day = chrono::NaiveDate::parse_from_str(&r[4], "%Y-%m-%d").unwrap();
+        if day.weekday() != chrono::Weekday::Mon {
+            not_monday.insert(format!("{}.{}", &r[1], &r[2]));
+            rows += 1;
+        }
+    }
+    assert!(rows > 0);
+    assert_eq!(
+        not_monday,
+        BTreeSet::from(["trend.weight_trend_weekly".to_string()])
+    );
+    let package = read_json(&metrics.join("datapackage.json"));
+    let weekly = package["resources"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["path"] == "weekly.csv")
+        .unwrap();
+    assert_eq!(
+        weekly["description"],
+        "every module's weekly series in long form; weeks start on Monday, but a series whose \
+         span starts mid-week (the trend's weight_trend_weekly, from the first weigh-in) dates \
+         that first week by the span's first day (see week_start)"
+    );
+}

@@ -5,6 +5,7 @@ mod accessibility;
 mod careless;
 mod check;
 mod datapackage;
+mod docs;
 mod export_shapes;
 mod exports;
 mod external;

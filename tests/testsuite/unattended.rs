@@ -156,6 +156,48 @@ fn only_never_replaces_a_complete_output_and_a_typo_is_an_error() {
     assert!(part.join("participants/clean-b.html").is_file());
 }
 
+/// `run PROGRAM --only ID` without `--out` names the program's own output folder
+/// (`report.out`), which holds the complete output: refused as a wrong command line, exit 2, as
+/// docs/GUIDE.md says ("`--only` into the complete output is refused with exit 2"). It was exit
+/// 3, "program.yaml or the program folder is invalid", with the message located at
+/// `program.yaml:LINE:COL` (the `report.out` line), though program.yaml was fine and the
+/// command line lacked `--out DIR`.
+#[test]
+fn only_into_the_programs_own_complete_output_is_a_command_line_error() {
+    let t = small();
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml")).unwrap();
+    std::fs::write(
+        t.dir.join("program.yaml"),
+        yaml.replace("report:\n", "report:\n  out: reports\n"),
+    )
+    .unwrap();
+    let run = |extra: &[&str]| {
+        let mut args = vec!["run", "{dir}", "--as-of", AS_OF, "--formats", "html"];
+        args.extend_from_slice(extra);
+        t.run(&args)
+    };
+    assert_eq!(run(&[]).code, 0);
+    let out = t.dir.join("reports");
+    let complete = tree_hashes(&out);
+    let o = run(&["--only", "clean-a"]);
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(
+        o.stderr.contains(
+            "refusing to replace the complete output in {} with a partial one (--only); give \
+             the partial run a folder of its own with --out DIR"
+                .replace(
+                    "{}",
+                    &std::fs::canonicalize(&out).unwrap().to_string_lossy()
+                )
+                .as_str()
+        ),
+        "{}",
+        o.stderr
+    );
+    assert!(!o.stderr.contains("program.yaml:"), "{}", o.stderr);
+    assert_eq!(tree_hashes(&out), complete);
+}
+
 #[test]
 fn a_missing_or_empty_participants_folder_keeps_last_months_output() {
     let t = small();
