@@ -111,11 +111,14 @@ pub fn default_dir(out_dir: &Path) -> PathBuf {
 /// into a fresh folder after one withdrawal printed every count one lower), else a new ledger
 /// there. Refused (with the reason) when it would be inside the program's inputs or inside the
 /// output folder, and when more than one ledger beside the output folder records this
-/// program's group reports (which of them to audit against is the user's to say).
+/// program's group reports (which of them to audit against is the user's to say). With
+/// `group_report` false (a run of `--only` or a shard, which records nothing) no ledger beside
+/// is looked for.
 pub fn resolve_dir(
     cli: Option<&Path>,
     program: &crate::program::Program,
     out_dir: &Path,
+    group_report: bool,
 ) -> Result<PathBuf, String> {
     let cwd = std::env::current_dir().unwrap_or_default();
     let (dir, named_by) = match (cli, &program.def.report.state_dir) {
@@ -130,7 +133,9 @@ pub fn resolve_dir(
             let own = default_dir(out_dir);
             let chosen = if has_ledger(&programs) {
                 programs
-            } else if has_ledger(&cwd.join(&own)) {
+            } else if has_ledger(&cwd.join(&own)) || !group_report {
+                // A run that writes no group report (`--only`, a shard) records nothing, so
+                // it neither looks for a ledger beside nor is stopped by two of them.
                 return Ok(own);
             } else {
                 // One rule for every run without a ledger named: the program's releases are

@@ -523,6 +523,31 @@ fn a_ledger_beside_that_holds_the_programs_releases_is_the_one_used() {
     );
     assert!(!t.dir.join("reports-c").exists());
     assert!(!t.dir.join("reports-c.ledger").exists());
+    // A run that writes no group report records nothing and is not stopped by them.
+    let only = ["--only", "SG-003"];
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-03",
+        "--formats",
+        "html",
+        only[0],
+        only[1],
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(t.dir.join("reports-c/participants/SG-003.html").is_file());
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-03",
+        "--formats",
+        "html",
+        "--shard",
+        "1/2",
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
 }
 
 /// A cron script writing each release into a folder of its own (`--out srv/2026-08`, then a
