@@ -671,7 +671,7 @@ fn ledger_problems(
         Some(o) => o.to_path_buf(),
         None => prog.root.join(&prog.def.report.out),
     };
-    let dir = crate::group::ledger::resolve_dir(state, prog, &out_dir)?;
+    let dir = crate::group::ledger::resolve_dir(state, prog, &out_dir, true)?;
     Ok(match crate::group::ledger::Ledger::folder_problem(&dir) {
         Ok(()) => Vec::new(),
         Err(p) => vec![

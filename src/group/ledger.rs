@@ -104,13 +104,21 @@ pub fn default_dir(out_dir: &Path) -> PathBuf {
 /// program's own output folder (`report.out`) when one exists there — a run into another
 /// folder (`--out`: a re-issue, a preview, a folder per month) is then audited against every
 /// release the program's runs recorded, instead of a new, empty ledger against which any
-/// difference of two reports would go unseen — else [`default_dir`] of the output folder.
-/// Refused (with the reason) when it would be inside the program's inputs or inside the output
-/// folder.
+/// difference of two reports would go unseen — else [`default_dir`] of the output folder when it
+/// holds a ledger, else the one ledger beside it that records this program's group reports (a
+/// folder per month, `--out reports/2026-06` after `reports/2026-05`, or `report.out` edited
+/// each month: a new ledger each month audited no report against the last, and a re-issue
+/// into a fresh folder after one withdrawal printed every count one lower), else a new ledger
+/// there. Refused (with the reason) when it would be inside the program's inputs or inside the
+/// output folder, and when more than one ledger beside the output folder records this
+/// program's group reports (which of them to audit against is the user's to say). With
+/// `group_report` false (a run of `--only` or a shard, which records nothing) no ledger beside
+/// is looked for.
 pub fn resolve_dir(
     cli: Option<&Path>,
     program: &crate::program::Program,
     out_dir: &Path,
+    group_report: bool,
 ) -> Result<PathBuf, String> {
     let cwd = std::env::current_dir().unwrap_or_default();
     let (dir, named_by) = match (cli, &program.def.report.state_dir) {
@@ -119,24 +127,59 @@ pub fn resolve_dir(
         (None, None) => {
             let program_out = cwd.join(&program.root).join(&program.def.report.out);
             let programs = default_dir(&program_out);
-            let existing =
-                std::fs::symlink_metadata(programs.join(LEDGER_FILE)).is_ok_and(|m| m.is_file());
-            if !existing {
-                return Ok(default_dir(out_dir));
-            }
+            let has_ledger = |d: &Path| {
+                std::fs::symlink_metadata(d.join(LEDGER_FILE)).is_ok_and(|m| m.is_file())
+            };
+            let own = default_dir(out_dir);
+            let chosen = if has_ledger(&programs) {
+                programs
+            } else if has_ledger(&cwd.join(&own)) || !group_report {
+                // A run that writes no group report (`--only`, a shard) records nothing, so
+                // it neither looks for a ledger beside nor is stopped by two of them.
+                return Ok(own);
+            } else {
+                // One rule for every run without a ledger named: the program's releases are
+                // audited together wherever they were found, never each against nothing.
+                match ledgers_beside(&cwd.join(&own), &program.info.id).as_slice() {
+                    [] => return Ok(own),
+                    [one] => {
+                        tracing::info!(
+                            "group-report ledger {}: used for this report, as it records this \
+                             program's earlier group reports and lies beside the output folder, \
+                             which has no ledger of its own; this report is audited against them",
+                            one.display()
+                        );
+                        one.clone()
+                    }
+                    many => {
+                        return Err(format!(
+                            "the output folder {} has no group-report ledger of its own, and \
+                             beside it {} each record group reports of this program; name the \
+                             one to audit this report against with --state (or \
+                             report.state_dir): with a new ledger, a difference of two reports \
+                             could give away a small group's figures",
+                            out_dir.display(),
+                            many.iter()
+                                .map(|d| d.display().to_string())
+                                .collect::<Vec<_>>()
+                                .join(" and ")
+                        ));
+                    }
+                }
+            };
             // `--out reports.ledger/x`: the run would stage its output in the program's ledger
             // folder, fail there, and leave a lock file that made every later run refuse the
             // ledger (exit 6). (Every other place is judged by the output folder's own checks.)
             let lexical = crate::program::load::lexical;
-            if lexical(&cwd.join(out_dir)).starts_with(lexical(&programs)) {
+            if lexical(&cwd.join(out_dir)).starts_with(lexical(&chosen)) {
                 return Err(format!(
                     "--out {}: the output folder would be inside the program's ledger folder {}, \
                      which holds the ledger's files only; name an output folder outside it",
                     out_dir.display(),
-                    programs.display()
+                    chosen.display()
                 ));
             }
-            return Ok(programs);
+            return Ok(chosen);
         }
     };
     let root = cwd.join(&program.root);
@@ -201,11 +244,11 @@ impl From<FolderProblem> for std::io::Error {
 }
 
 /// Other ledger folders beside `dir` (named `*.ledger`, as [`default_dir`] names them) whose
-/// `ledger.json` records a release of `program`, sorted. A run that starts a new ledger while
-/// these hold the program's earlier group reports is not audited against them: `report.out`
-/// changed from one month to the next gives each month a ledger of its own. Nothing is locked
-/// or created; a folder that cannot be read, or whose `ledger.json` is a link or not a regular
-/// file, is passed over.
+/// `ledger.json` records a release of `program`, sorted: the ledger [`resolve_dir`] uses when
+/// the output folder has none of its own (a folder per month, or `report.out` changed from one
+/// month to the next, would otherwise give each month a new ledger, audited against nothing).
+/// Nothing is locked or created; a folder that cannot be read, or whose `ledger.json` is a link
+/// or not a regular file, is passed over.
 pub fn ledgers_beside(dir: &Path, program: &str) -> Vec<PathBuf> {
     let (Some(parent), Some(own)) = (dir.parent(), dir.file_name()) else {
         return Vec::new();

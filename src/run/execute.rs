@@ -515,28 +515,6 @@ pub fn finish(
                 ledger.dir().display()
             );
         }
-        // A new ledger where neither warning above speaks (the output folder named by
-        // program.yaml, and new), while a ledger beside it records this program's earlier
-        // group reports: `report.out` changed between months, each month with a ledger of its
-        // own, and no report audited against another.
-        if ledger.is_new() && !earlier_group_report && plan.out_named_by != "--out" {
-            let others = group::ledger::ledgers_beside(ledger.dir(), &plan.program.info.id);
-            if !others.is_empty() {
-                tracing::warn!(
-                    "group-report ledger {}: a new ledger, while {} beside it records earlier \
-                     group reports of this program, which this one is not audited against \
-                     (report.out changed?); name that ledger with --state (or \
-                     report.state_dir), or a difference of two reports may give away a small \
-                     group's figures",
-                    ledger.dir().display(),
-                    others
-                        .iter()
-                        .map(|o| o.display().to_string())
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                );
-            }
-        }
         // A group_by key no profile gives (checked here, over the group step's rows, so a
         // merge of shards says it as a whole run does).
         for d in participant::group_keys_nobody_has(&plan.program, rows.iter().map(|r| &r.groups)) {

@@ -295,8 +295,10 @@ pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
         )));
     }
     let key = run_key(&program, &modules, period, as_of, &formats)?;
+    let group_report = args.only.is_empty() && args.shard.is_none();
     let state_dir =
-        group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir).map_err(usage)?;
+        group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir, group_report)
+            .map_err(usage)?;
     Ok(RunPlan {
         program,
         modules,
@@ -352,7 +354,8 @@ pub fn plan_for_merge(
     };
     let key = run_key(&program, &modules, period, as_of, &formats)?;
     let state_dir =
-        group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir).map_err(usage)?;
+        group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir, only.is_empty())
+            .map_err(usage)?;
     Ok(RunPlan {
         program,
         modules,

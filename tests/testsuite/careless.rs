@@ -802,7 +802,9 @@ fn check_says_an_output_folder_on_a_read_only_file_system_cannot_be_written() {
 /// An output folder whose name is not UTF-8 (a Latin-1 `é` from an old script: byte 0xE9): its
 /// lock file, staging folder, previous copy and ledger were named from the name's text, with
 /// U+FFFD for the byte, so `rapport\xe9` and `rapport\xe8` shared one lock, one staging folder,
-/// one previous copy and one ledger, none of them `<out>.ledger`. Named byte for byte now.
+/// one previous copy and one ledger, none of them `<out>.ledger`. Named byte for byte now. (The
+/// second folder has no ledger of its own and the first's lies beside it, recording this
+/// program: that one is used, so only the first run makes a ledger.)
 #[test]
 fn an_output_folder_name_that_is_not_utf8_gets_files_of_its_own() {
     use std::os::unix::ffi::OsStrExt;
@@ -826,7 +828,7 @@ fn an_output_folder_name_that_is_not_utf8_gets_files_of_its_own() {
             out.as_os_str(),
         ]);
         assert_eq!(o.code, 0, "{o:?}");
-        let mut ledger = name(b);
+        let mut ledger = name(0xe9);
         ledger.push(".ledger");
         assert!(parent.join(&ledger).join("ledger.json").is_file(), "{o:?}");
         let mut lock = std::ffi::OsString::from(".");
@@ -834,6 +836,9 @@ fn an_output_folder_name_that_is_not_utf8_gets_files_of_its_own() {
         lock.push(".lock");
         assert!(parent.join(&lock).is_file());
     }
+    let mut second = name(0xe8);
+    second.push(".ledger");
+    assert!(!parent.join(&second).exists());
     let real: Vec<_> = fs::read_dir(&parent)
         .unwrap()
         .map(|e| e.unwrap().file_name())

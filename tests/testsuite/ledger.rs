@@ -461,11 +461,11 @@ fn a_key_that_does_not_belong_to_the_ledger_is_refused() {
     assert_eq!(run("2026-12-02").code, 0);
 }
 
+/// `report.out` edited each month (`reports-a`, then `reports-b`): each month got a ledger of
+/// its own beside its folder, and the second report was audited against nothing (a warning
+/// only). The ledger beside that records the program's releases is now the one used.
 #[test]
-fn a_new_ledger_while_another_beside_it_holds_the_programs_releases_is_warned_about() {
-    // `report.out` edited each month (`reports-2026-11`, `reports-2026-12`): each month got a
-    // ledger of its own beside its folder, and the second report was audited against nothing,
-    // without a word.
+fn a_ledger_beside_that_holds_the_programs_releases_is_the_one_used() {
     let t = ProgramTest::fixture("report-small");
     let yaml = t.dir.join("program.yaml");
     let text = std::fs::read_to_string(&yaml).unwrap();
@@ -488,22 +488,152 @@ fn a_new_ledger_while_another_beside_it_holds_the_programs_releases_is_warned_ab
     with_out("reports-b");
     let o = run("2026-12-02");
     assert_eq!(o.code, 0, "{o:?}");
-    assert!(
-        o.stderr.contains("a new ledger, while") && o.stderr.contains("reports-a.ledger"),
-        "{}",
-        o.stderr
-    );
-    // One sentence, not the source's indentation: the message's lines were joined without
-    // `\`, and each break printed as a newline and 22 spaces.
+    assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
+    assert!(!t.dir.join("reports-b.ledger").exists());
+    let ledger: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(t.dir.join("reports-a.ledger/ledger.json")).unwrap())
+            .unwrap();
+    assert_eq!(ledger["releases"].as_array().unwrap().len(), 2);
+    // One sentence, not the source's indentation.
     let line = o
         .stderr
         .lines()
-        .find(|l| l.contains("a new ledger, while"))
+        .find(|l| l.contains("reports-a.ledger"))
         .unwrap();
     assert!(
-        line.contains("records earlier group reports of this program") && !line.contains("  "),
+        line.contains("records this program's earlier group reports") && !line.contains("  "),
         "{line}"
     );
+    // Two such ledgers: which one to audit against is the user's to say.
+    std::fs::create_dir(t.dir.join("reports-z.ledger")).unwrap();
+    for f in ["ledger.json", "secret.key"] {
+        std::fs::copy(
+            t.dir.join("reports-a.ledger").join(f),
+            t.dir.join("reports-z.ledger").join(f),
+        )
+        .unwrap();
+    }
+    with_out("reports-c");
+    let o = run("2026-12-03");
+    assert_eq!(o.code, 2, "{o:?}");
+    assert!(
+        o.stderr.contains("reports-a.ledger") && o.stderr.contains("reports-z.ledger"),
+        "{}",
+        o.stderr
+    );
+    assert!(!t.dir.join("reports-c").exists());
+    assert!(!t.dir.join("reports-c.ledger").exists());
+    // A run that writes no group report records nothing and is not stopped by them.
+    let only = ["--only", "SG-003"];
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-03",
+        "--formats",
+        "html",
+        only[0],
+        only[1],
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(t.dir.join("reports-c/participants/SG-003.html").is_file());
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-03",
+        "--formats",
+        "html",
+        "--shard",
+        "1/2",
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+}
+
+/// A cron script writing each release into a folder of its own (`--out srv/2026-08`, then a
+/// re-issue `--out srv/2026-08-reissue` after SG-007 withdrew consent and her folder was
+/// removed), with no --state and no ledger in the program's own output folder: the re-issue
+/// started a new ledger and printed every count that holds her one lower (whole program 50 to
+/// 49 enrolled, Kiln Row 23 to 22, reached 5 % 23 to 22): her site and her milestones, and,
+/// from the means, her weight change. It is now audited against the first release, through
+/// the ledger beside its folder.
+#[test]
+fn a_release_into_a_fresh_folder_beside_the_last_is_audited_against_it() {
+    let t = ProgramTest::sample();
+    let srv = t.dir.parent().unwrap().join("srv");
+    std::fs::create_dir(&srv).unwrap();
+    let run = |out: &str| {
+        let out = srv.join(out).to_string_lossy().into_owned();
+        let args = [
+            "run",
+            "{dir}",
+            "--period",
+            "2026-08",
+            "--as-of",
+            "2026-09-02",
+        ];
+        let o = t.run(&[&args[..], &["--formats", "html", "--out", &out]].concat());
+        assert_eq!(o.code, 4, "{o:?}"); // the sample's planted errors
+        let g: serde_json::Value = serde_json::from_slice(
+            &std::fs::read(srv.join(&out).join("metrics/group.json")).unwrap(),
+        )
+        .unwrap();
+        (o, g)
+    };
+    let (_, first) = run("2026-08");
+    let kiln = |g: &serde_json::Value| {
+        g["splits"][0]["sections"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|s| s["label"] == "Kiln Row")
+            .unwrap()["stats"]["enrolment"]["enrolled"]
+            .clone()
+    };
+    assert_eq!(
+        first["program"]["stats"]["enrolment"]["enrolled"]["value"],
+        50
+    );
+    assert_eq!(kiln(&first)["value"], 23);
+    std::fs::remove_dir_all(t.dir.join("participants/SG-007")).unwrap();
+    let (o, second) = run("2026-08-reissue");
+    assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
+    assert!(!srv.join("2026-08-reissue.ledger").exists());
+    let enrolled = &second["program"]["stats"]["enrolment"]["enrolled"];
+    assert_ne!(enrolled["value"], 49, "{enrolled}");
+    assert_ne!(kiln(&second)["value"], 22, "{}", kiln(&second));
+    // No exact count of the re-issue is one to ten below the same count in the first.
+    fn exact(v: &serde_json::Value, path: String, out: &mut Vec<(String, i64)>) {
+        match v {
+            serde_json::Value::Object(m) => {
+                if let Some(n) = m.get("value").and_then(serde_json::Value::as_i64)
+                    && !path.contains("percent")
+                {
+                    out.push((path.clone(), n));
+                }
+                for (k, x) in m {
+                    exact(x, format!("{path}/{k}"), out);
+                }
+            }
+            serde_json::Value::Array(a) => {
+                for (i, x) in a.iter().enumerate() {
+                    exact(x, format!("{path}/{i}"), out);
+                }
+            }
+            _ => {}
+        }
+    }
+    let (mut a, mut b) = (Vec::new(), Vec::new());
+    exact(&first, String::new(), &mut a);
+    exact(&second, String::new(), &mut b);
+    let b: std::collections::BTreeMap<_, _> = b.into_iter().collect();
+    let close: Vec<_> = a
+        .iter()
+        .filter(|(p, _)| p.contains("/enrolment/") || p.contains("/milestones/"))
+        .filter_map(|(p, n)| b.get(p).map(|m| (p, n, m)))
+        .filter(|(_, n, m)| (1..=10).contains(&(**n - **m)))
+        .collect();
+    assert!(close.is_empty(), "{close:?}");
 }
 
 #[test]
