@@ -138,7 +138,10 @@ fn report_failure(e: &RunError, as_log: bool) -> i32 {
         RunError::Invalid { diagnostics, .. } => {
             for d in diagnostics {
                 if as_log {
-                    tracing::error!("{}", d.to_string().replace('\n', " |"));
+                    // The log line's level says "ERROR" already: "ERROR error: merge: …"
+                    // said it twice.
+                    let text = d.to_string().replace('\n', " |");
+                    tracing::error!("{}", text.strip_prefix("error: ").unwrap_or(&text));
                 } else {
                     eprintln!("{d}");
                 }

@@ -189,10 +189,17 @@ fn read_shards(dirs: &[PathBuf]) -> Result<Vec<ShardFile>, RunError> {
             .map(|w| format!("{}/{}", w[0], first.of))
             .collect();
         dup.dedup();
+        // Only what is wrong: "missing: [2/2], given twice: []" named an empty list.
+        let mut wrong = Vec::new();
+        if !missing.is_empty() {
+            wrong.push(format!("missing: {}", missing.join(", ")));
+        }
+        if !dup.is_empty() {
+            wrong.push(format!("given twice: {}", dup.join(", ")));
+        }
         return Err(merge_error(format!(
-            "every shard 1…{n} is needed exactly once; missing: [{}], given twice: [{}]",
-            missing.join(", "),
-            dup.join(", "),
+            "every shard 1…{n} is needed exactly once; {}",
+            wrong.join("; "),
             n = first.of
         )));
     }

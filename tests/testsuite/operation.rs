@@ -715,7 +715,15 @@ fn three_shards_merged_equal_a_single_run() {
         &shard_dirs[2],
     ]);
     assert_eq!(m.code, 2, "{}", m.stderr);
-    assert!(m.stderr.contains("missing: [2/3]"), "{}", m.stderr);
+    // Only what is wrong, said once: it was "ERROR error: merge: … missing: [2/3], given
+    // twice: []".
+    assert!(
+        m.stderr
+            .contains("ERROR merge: every shard 1…3 is needed exactly once; missing: 2/3\n"),
+        "{}",
+        m.stderr
+    );
+    assert!(!m.stderr.contains("given twice"), "{}", m.stderr);
     assert!(!Path::new(&partial).exists());
 
     // Shards of a different run (another as-of date) are refused.
