@@ -268,8 +268,9 @@ struct Regions<'a> {
 
 /// Feasible points kept per audit: region sizes that satisfy every constraint of one set of
 /// sets, from the linear programs solved so far (program choice; each is a vector of the
-/// family's region count).
-const POINTS_KEPT: usize = 64;
+/// family's region count, so at most 1,024 × 1,200 × 8 bytes ≈ 10 MB). Measured on the 25th
+/// release of a 1,000-person program: 1,225 programs with 64 kept, 1,050 with 1,024.
+const POINTS_KEPT: usize = 1_024;
 
 /// Smallest and largest whole size of the union of `target` regions under the constraints of
 /// the sets `using`; `None` when a program cannot be solved (treated as a failure).
