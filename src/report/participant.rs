@@ -1705,8 +1705,23 @@ fn adherence_section(
             suppressed: false,
         });
         let offered = num_text(w.sessions_offered);
+        // A week of fewer than 7 days (the first, from the day they joined, the last, to the
+        // period's end or the day they left) says so: "28 Sep 2026 · 0 weigh-in days · 0
+        // activity min" in a September report read as a week with none, beside full weeks,
+        // when it held 3 days.
+        let week = match w.days_covered {
+            Some(n) if (1.0..7.0).contains(&n) => {
+                let n = n.round() as i64;
+                format!(
+                    "{} ({n} {})",
+                    fmt::date(d),
+                    if n == 1 { "day" } else { "days" }
+                )
+            }
+            _ => fmt::date(d),
+        };
         table.rows.push(vec![
-            fmt::date(d),
+            week,
             num_text(w.weigh_ins),
             num_text(w.food_log_days),
             if *unread == ActivityUnread::NoLog {
@@ -1725,6 +1740,14 @@ fn adherence_section(
         "Moderate-equivalent activity minutes by week, against the target of {} minutes.",
         fmt::fixed(target, 0)
     );
+    if a.weekly
+        .iter()
+        .any(|w| w.days_covered.is_some_and(|n| (1.0..7.0).contains(&n)))
+    {
+        alt.push_str(
+            " A week of fewer than 7 days (when you joined, or at the end of the period) gives its number of days in the table, and its counts are for those days only.",
+        );
+    }
     if *unread == ActivityUnread::NoLog {
         // No bars at all (the chart says there are no data): bars of 0 minutes, each labelled
         // "0", drew as measured what nobody logged, beside a caption saying the bars show none.
@@ -1763,6 +1786,77 @@ mod activity_unread_tests {
             food_log_days: 0,
             activity_minutes: None,
         }
+    }
+
+    /// Sample program, September 2026, SG-001: the habits table's last row read "28 Sep 2026 ·
+    /// 0 · 1 · 0" beside full weeks, a week with no weigh-in and no activity, when the period
+    /// left it 3 days (28-30 September). A week of fewer than 7 days gives its days; the
+    /// caption says what they mean. With full weeks only, nothing is added.
+    #[test]
+    fn a_week_of_fewer_than_seven_days_says_how_many_it_covers() {
+        let week = |d: u32, days: f64| cohortpress_metric_adherence::view::WeekRow {
+            week_start: NaiveDate::from_ymd_opt(2026, 9, d).unwrap(),
+            days_covered: Some(days),
+            weigh_ins: Some(0.0),
+            food_log_days: Some(1.0),
+            activity_minutes: Some(0.0),
+            sessions_offered: None,
+            sessions_attended: None,
+            met_weigh_in_target: None,
+            met_food_log_target: None,
+            met_activity_target: None,
+        };
+        let adherence = AdherenceResults {
+            weekly: vec![week(2, 5.0), week(7, 7.0), week(28, 3.0), week(29, 1.0)],
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(
+            &adherence,
+            150.0,
+            &ActivityUnread::Nothing,
+            "September 2026",
+            &days(30),
+        );
+        let first: Vec<&str> = view
+            .chart
+            .table
+            .rows
+            .iter()
+            .map(|r| r[0].as_str())
+            .collect();
+        assert_eq!(
+            first,
+            [
+                "2 Sep 2026 (5 days)",
+                "7 Sep 2026",
+                "28 Sep 2026 (3 days)",
+                "29 Sep 2026 (1 day)"
+            ]
+        );
+        assert!(
+            view.chart.alt.ends_with(
+                " A week of fewer than 7 days (when you joined, or at the end of the period) gives its number of days in the table, and its counts are for those days only."
+            ),
+            "{}",
+            view.chart.alt
+        );
+        let full = AdherenceResults {
+            weekly: vec![week(7, 7.0)],
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(
+            &full,
+            150.0,
+            &ActivityUnread::Nothing,
+            "September 2026",
+            &days(30),
+        );
+        assert_eq!(view.chart.table.rows[0][0], "7 Sep 2026");
+        assert!(
+            !view.chart.alt.contains("fewer than 7 days"),
+            "{}",
+            view.chart.alt
+        );
     }
 
     /// LIFE-003 of a hand-made pilot (no activity.csv): the activity chart drew a "0" over every
