@@ -87,7 +87,7 @@ pub const TABLE: &[(i32, &str)] = &[
     ),
     (
         OUTPUT_FAILED,
-        "writing outputs failed (a full disk, a file-size limit such as `ulimit -f`, a read-only folder: the message names the file by the output folder's path and says the previous outputs were left as they were); previous outputs were left intact (from `check`: the output folder or the group-report ledger's folder cannot be written or used, or a participant page from the program's own templates lacks the cautions, so a run would stop); also, before anything is computed, when the temporary folder external modules run in (`TMPDIR`, else `/tmp`) cannot be used",
+        "writing outputs failed (a full disk, a file-size limit such as `ulimit -f`, a read-only folder, a failed swap into place, a ledger that cannot be saved: the message names the file by the output folder's path (the ledger by `ledger.json`) and says the previous outputs were left as they were); previous outputs were left intact (from `check`: the output folder or the group-report ledger's folder cannot be written or used, or a participant page from the program's own templates lacks the cautions, so a run would stop); also, before anything is computed, when the temporary folder external modules run in (`TMPDIR`, else `/tmp`) cannot be used",
     ),
     (
         LOCKED,

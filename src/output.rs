@@ -858,16 +858,46 @@ impl Staging {
     /// as it stops). tryout18 filled a tmpfs and read "participants/LS-002.html: No space left
     /// on device", with no folder, and no word that last month's reports were still there.
     fn write_failed(&self, rel: &str, source: std::io::Error) -> StagingError {
+        StagingError::Write {
+            path: if rel.is_empty() {
+                self.final_dir.display().to_string()
+            } else {
+                self.final_dir.join(rel).display().to_string()
+            },
+            source,
+            kept: self.kept(),
+        }
+    }
+
+    /// What became of the output folder when the run stops before its swap: "the previous
+    /// outputs in DIR were left as they were", or "nothing was written to DIR" when there were
+    /// none (the ledger's refused write says it too).
+    pub fn kept(&self) -> String {
         let shown = self.final_dir.display().to_string();
-        let kept = if fs::symlink_metadata(&self.final_dir).is_ok() {
+        if fs::symlink_metadata(&self.final_dir).is_ok() {
             format!("the previous outputs in {shown} were left as they were")
         } else {
             format!("nothing was written to {shown}")
-        };
-        StagingError::Write {
-            path: self.final_dir.join(rel).display().to_string(),
-            source,
-            kept,
+        }
+    }
+
+    /// An error of the commit's sync naming a path in staging (`.NAME.staging/participants`),
+    /// told by the output folder's path as [`Staging::write_failed`] tells a refused write: it
+    /// named `.NAME.staging/…`, a folder the run removes as it stops and the user never named,
+    /// and did not say the previous outputs were still in place.
+    fn at_commit(&self, e: StagingError) -> StagingError {
+        match e {
+            StagingError::Io { path, source } => {
+                let rel = Path::new(&path)
+                    .strip_prefix(&self.dir)
+                    .ok()
+                    .map(|r| r.to_string_lossy().into_owned());
+                match rel {
+                    Some(rel) => self.write_failed(&rel, source),
+                    None => StagingError::Io { path, source },
+                }
+            }
+            other => other,
         }
     }
 
@@ -907,10 +937,14 @@ impl Staging {
                 .lock()
                 .expect("no panics while holding the lock"),
         );
-        sync_written(&self.dir, folders.iter().rev().map(PathBuf::as_path))?;
+        sync_written(&self.dir, folders.iter().rev().map(PathBuf::as_path))
+            .map_err(|e| self.at_commit(e))?;
         let mut was_empty = false;
-        if fs::symlink_metadata(&self.final_dir).is_ok() {
-            fs::rename(&self.final_dir, &self.previous).map_err(io(&self.final_dir))?;
+        let moved_aside = fs::symlink_metadata(&self.final_dir).is_ok();
+        if moved_aside {
+            // Refused, the previous output is still in place under its name.
+            fs::rename(&self.final_dir, &self.previous)
+                .map_err(|source| self.write_failed("", source))?;
             // Checked again once it is out of the way (nothing can be added to it under its
             // old name any more): a folder that was empty when the run began may have been
             // given files since (someone saving to a shared drive); it is put back untouched.
@@ -930,7 +964,25 @@ impl Staging {
                 }
             }
         }
-        fs::rename(&self.dir, &self.final_dir).map_err(io(&self.final_dir))?;
+        if let Err(source) = fs::rename(&self.dir, &self.final_dir) {
+            // The previous output goes back under its name, so that the run stops with it in
+            // place as every earlier failure does; "io(final_dir)" alone left it, unsaid, in
+            // `.NAME.previous`.
+            let kept = if !moved_aside || fs::rename(&self.previous, &self.final_dir).is_ok() {
+                self.kept()
+            } else {
+                format!(
+                    "the previous outputs are in {}: rename it back to {}",
+                    self.previous.display(),
+                    self.final_dir.display()
+                )
+            };
+            return Err(StagingError::Write {
+                path: self.final_dir.display().to_string(),
+                source,
+                kept,
+            });
+        }
         self.committed = true;
         // The marker goes last, so a staging folder is recognisable as ours until it is in place.
         let marker = self.final_dir.join(STAGING_MARKER);
@@ -1386,6 +1438,69 @@ mod tests {
             .write(MANIFEST, manifest.to_string().as_bytes())
             .unwrap();
         staging.commit().unwrap();
+    }
+
+    /// A commit that failed named the staging folder (`…/.out.staging/participants: No such
+    /// file or directory`), which the run removes as it stops, and said nothing of the
+    /// previous output. It names the output folder's path and says what became of it: a
+    /// folder of staging gone before the sync, then a `.out.previous` in the way of the swap.
+    #[test]
+    fn a_commit_that_fails_names_the_output_folder_and_what_became_of_it() {
+        let tmp = tempfile::tempdir().unwrap();
+        let program = tmp.path().join("program");
+        fs::create_dir_all(program.join("participants")).unwrap();
+        let out = tmp.path().join("out");
+        let target = OutputTarget {
+            dir: out.clone(),
+            program_root: program,
+            participants_dir: "participants",
+            program_id: "p".into(),
+            templates: None,
+            scope: OutputScope::Complete,
+            named_by: "--out",
+        };
+        let shown = out.display().to_string();
+        let fail_sync = || {
+            let staging = Staging::begin(&target, Access::Owner).unwrap();
+            staging.write("participants/a.html", b"x").unwrap();
+            fs::remove_dir_all(staging.dir.join("participants")).unwrap();
+            staging.commit().map(|_| ()).unwrap_err().to_string()
+        };
+        // A first run: nothing was written.
+        let e = fail_sync();
+        assert!(e.starts_with(&format!("{shown}/participants: ")), "{e}");
+        assert!(
+            e.ends_with(&format!("; nothing was written to {shown}")),
+            "{e}"
+        );
+        assert!(!e.contains(".staging"), "{e}");
+        assert!(!out.exists());
+        // With an earlier output: left as it was.
+        write_output(&target);
+        let e = fail_sync();
+        assert!(e.starts_with(&format!("{shown}/participants: ")), "{e}");
+        assert!(
+            e.ends_with(&format!(
+                "; the previous outputs in {shown} were left as they were"
+            )),
+            "{e}"
+        );
+        assert!(out.join(MANIFEST).is_file() && out.join("f00/report.html").is_file());
+        // The previous output cannot be moved aside: still in place, and said so.
+        let staging = Staging::begin(&target, Access::Owner).unwrap();
+        staging.write("participants/a.html", b"x").unwrap();
+        let previous = tmp.path().join(".out.previous");
+        fs::create_dir_all(previous.join("x")).unwrap();
+        let e = staging.commit().map(|_| ()).unwrap_err().to_string();
+        assert!(e.starts_with(&format!("{shown}: ")), "{e}");
+        assert!(
+            e.ends_with(&format!(
+                "; the previous outputs in {shown} were left as they were"
+            )),
+            "{e}"
+        );
+        assert!(!e.contains(".staging"), "{e}");
+        assert!(out.join(MANIFEST).is_file() && out.join("f00/report.html").is_file());
     }
 
     /// A run removes the previous output after the swap. Removed in the order the folder

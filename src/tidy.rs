@@ -935,7 +935,10 @@ pub fn datapackage(
              only as the range the rest of the report implies. Counts are people; shares and \
              intervals are %. It holds no names or ids, and no count from 1 to min_cell_size − \
              1 (docs/METHODS.md §5). Retention is retained / started (still in the program); \
-             with_outcome_percent is the share of those started with a weight at the time point",
+             with_outcome_percent is the share of those started with a weight at the time point. \
+             The adherence medians of activity minutes, weigh-in days and food-log days per \
+             week leave out anyone with fewer than 7 days in the period (no rate per week: \
+             participants.csv has these empty); their n counts those with a rate",
         ));
     }
     let package = DpPackage {

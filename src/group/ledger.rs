@@ -600,12 +600,25 @@ fn fresh_key() -> [u8; 32] {
 /// file — or a link planted under its name — is removed first, never written through: the
 /// file is created with `O_EXCL`, so no link is followed and nothing outside the folder is
 /// overwritten.
+///
+/// An error names the file being saved (`ledger.json`, the name the user knows) and says it
+/// was not changed: the temporary file's name alone read as if that were the ledger.
 fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     let tmp = path.with_extension("tmp");
+    let through = tmp.file_name().map_or_else(
+        || "a temporary file".to_string(),
+        |n| n.to_string_lossy().into_owned(),
+    );
+    let err = |e: std::io::Error| {
+        io_err(
+            path,
+            format!("{e} (written through {through} beside it; the file was not changed)"),
+        )
+    };
     match std::fs::remove_file(&tmp) {
         Ok(()) => {}
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
-        Err(e) => return Err(io_err(&tmp, e)),
+        Err(e) => return Err(err(e)),
     }
     {
         let mut options = std::fs::File::options();
@@ -615,9 +628,9 @@ fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
             use std::os::unix::fs::OpenOptionsExt;
             options.mode(0o600);
         }
-        let mut f = options.open(&tmp).map_err(|e| io_err(&tmp, e))?;
-        f.write_all(bytes).map_err(|e| io_err(&tmp, e))?;
-        f.sync_all().map_err(|e| io_err(&tmp, e))?;
+        let mut f = options.open(&tmp).map_err(err)?;
+        f.write_all(bytes).map_err(err)?;
+        f.sync_all().map_err(err)?;
     }
-    std::fs::rename(&tmp, path).map_err(|e| io_err(path, e))
+    std::fs::rename(&tmp, path).map_err(err)
 }

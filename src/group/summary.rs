@@ -166,6 +166,8 @@ pub struct Methods {
     pub completers: String,
     /// What the weekly trajectory's weeks and values are.
     pub trajectory: String,
+    /// Who the adherence medians cover.
+    pub adherence: String,
     /// Interval for a mean.
     pub mean_interval: String,
     /// Interval for a median.
@@ -234,6 +236,17 @@ impl Methods {
                          weighing in: not intention-to-treat). Each participant's values are in \
                          the program staff's tidy metrics (metrics/tables.csv, the outcomes \
                          module's trajectory table; identified: not for the sponsor)."
+                .into(),
+            // Common practice: a weekly figure covers a week. Scaled to 7 days, someone with
+            // 2 days in the period added "7.0 days with a weigh-in" or "210 minutes" (two
+            // 30-minute walks) to these medians.
+            adherence: "Adherence medians: each participant's rate per week over their days in \
+                        the period (from enrolment or the period's start to its end or the day \
+                        they left). Someone with fewer than 7 such days has no rate per week and \
+                        is left out of the activity, weigh-in and food-log medians; n counts \
+                        those with a rate, and is shown or hidden by the same small-cell rules \
+                        as every count. Session attendance is over every session offered since \
+                        enrolment."
                 .into(),
             mean_interval: format!("{c:.0} % interval for a mean: Student t (mean ± t × SE)."),
             median_interval: format!(

@@ -878,11 +878,15 @@ pub fn parse_weights(
             Some(t) => match MassUnit::parse(t) {
                 Some(u) => Some(u),
                 None => {
-                    d.push(
-                        c.warn("unit", "unknown weight unit; the row is dropped")
-                            .expected("`kg`, `lb`, `st` (decimal stones) or `g`")
-                            .found(format!("`{t}`")),
-                    );
+                    let mut w = c
+                        .warn("unit", "unknown weight unit; the row is dropped")
+                        .expected("`kg`, `lb`, `st` (decimal stones) or `g`")
+                        .found(format!("`{t}`"));
+                    // A delimiter inside the text before the unit moved it one column on.
+                    if let Some(h) = c.split_text_before("unit") {
+                        w = w.hint(h);
+                    }
+                    d.push(w);
                     return None;
                 }
             },
@@ -951,11 +955,14 @@ pub fn parse_weights(
             {
                 Ok(tm) => Some(tm.format("%H:%M").to_string()),
                 Err(_) => {
-                    d.push(
-                        c.warn("time", "unreadable time; the time is ignored")
-                            .expected("a time of day HH:MM, e.g. `07:30` (or `7:30 AM`)")
-                            .found(format!("`{t}`")),
-                    );
+                    let mut w = c
+                        .warn("time", "unreadable time; the time is ignored")
+                        .expected("a time of day HH:MM, e.g. `07:30` (or `7:30 AM`)")
+                        .found(format!("`{t}`"));
+                    if let Some(h) = c.split_text_before("time") {
+                        w = w.hint(h);
+                    }
+                    d.push(w);
                     None
                 }
             }
@@ -2645,8 +2652,8 @@ pub fn parse_labs(
         for (test, num) in parts {
             let value = c.parse_number("value", num, "the row is dropped", d)?;
             let Some(convert) = lab_unit(test, &unit) else {
-                d.push(
-                    c.warn(
+                let mut w = c
+                    .warn(
                         if c.text("unit").is_some() {
                             "unit"
                         } else {
@@ -2655,8 +2662,13 @@ pub fn parse_labs(
                         format!("unit not accepted for `{name}`; the row is dropped"),
                     )
                     .expected(lab_units_text(test))
-                    .found(format!("`{unit}`")),
-                );
+                    .found(format!("`{unit}`"));
+                if c.text("unit").is_some()
+                    && let Some(h) = c.split_text_before("unit")
+                {
+                    w = w.hint(h);
+                }
+                d.push(w);
                 return None;
             };
             let canonical = convert(value);

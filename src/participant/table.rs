@@ -1810,6 +1810,35 @@ fn read_records(
             ));
             continue;
         }
+        // A delimiter with no space after it, inside a text or a number's thousands: where
+        // joining two fields is the one way the row reads, that delimiter is named.
+        let joined = (!fits && rec.len() == width + 1)
+            .then(|| {
+                let cols: Vec<Option<&'static str>> = (0..width)
+                    .map(|j| {
+                        table
+                            .columns
+                            .iter()
+                            .find(|&(_, &k)| k == j)
+                            .map(|(&c, _)| c)
+                    })
+                    .collect();
+                split_by_reading(&rec, &cols, opts)
+            })
+            .flatten();
+        if let Some(i) = joined {
+            ctx.count_row();
+            row_diags.push(split_text_warning(
+                ctx,
+                &rec,
+                i,
+                line,
+                width,
+                written.get(i).map(String::as_str),
+                delimiter,
+            ));
+            continue;
+        }
         if !fits {
             ctx.count_row();
             let mut d = ctx
@@ -2380,6 +2409,95 @@ fn split_text_at(rec: &csv::StringRecord, opts: &CsvOptions) -> Option<usize> {
         .filter(|&i| text(&rec[i]) && rec[i + 1].starts_with(' ') && text(&rec[i + 1]))
         .collect();
     match pairs[..] {
+        [i] => Some(i),
+        _ => None,
+    }
+}
+
+/// Our columns whose values are numbers (a leading digit: `72.5`, `72.5 kg`, `1,234`).
+const NUMBER_COLUMNS: &[&str] = &[
+    "weight",
+    "kcal",
+    "carbs_g",
+    "fat_g",
+    "protein_g",
+    "free_sugars_g",
+    "minutes",
+    "met",
+    "steps",
+    "value",
+];
+
+/// Whether `v` could be a value of our column `col` as far as a shifted row tells: a date where
+/// a date goes, a number (a leading digit) where a number goes, a time (digits and `:`), a
+/// unit without digits; any text in a text column (`activity`, `source`, …) or a column not
+/// read (`None`). An empty value fits anywhere.
+fn fits_column(col: Option<&str>, v: &str, opts: &CsvOptions) -> bool {
+    let v = v.trim();
+    let digit_first = |t: &str| {
+        t.trim_start_matches(['-', '+', '.'])
+            .starts_with(|c: char| c.is_ascii_digit())
+    };
+    match col {
+        _ if v.is_empty() => true,
+        Some("date") => parse_when(v, opts).is_some() || numeric_parts(v).is_some(),
+        Some("time") => digit_first(v) && v.contains(':'),
+        Some("unit") => !v.chars().any(|c| c.is_ascii_digit()),
+        Some("attended") => !digit_first(v),
+        Some(c) if NUMBER_COLUMNS.contains(&c) => digit_first(v),
+        _ => true,
+    }
+}
+
+/// Text as the comma rules see it: a letter, and neither a numeric date nor a date.
+fn is_text_value(t: &str, opts: &CsvOptions) -> bool {
+    let t = t.trim();
+    t.chars().any(char::is_alphabetic)
+        && numeric_parts(t).is_none()
+        && parse_when(t, opts).is_none()
+}
+
+/// Where an unquoted delimiter splits a row of one field too many when no space after it tells
+/// (`2026-03-02,walk,brisk,30` under `date,activity,minutes`; `2026-03-02,1,234,80` under
+/// `date,kcal,protein_g`): the 0-based index of the first of the two fields that, joined, give
+/// a row every field of which fits its column ([`fits_column`]), when only one join does. The
+/// two fields must be a value the delimiter can be inside: two texts in a text column, or a
+/// number's thousands (`1` and `234`: 1 to 3 digits, then exactly 3) in a number column.
+/// `cols` names our column at each position of the header (`None`: not read).
+fn split_by_reading(
+    rec: &csv::StringRecord,
+    cols: &[Option<&'static str>],
+    opts: &CsvOptions,
+) -> Option<usize> {
+    let digits = |t: &str, n: std::ops::RangeInclusive<usize>| {
+        n.contains(&t.len()) && t.bytes().all(|c| c.is_ascii_digit())
+    };
+    let joinable = |i: usize| {
+        let (a, b) = (rec[i].trim(), rec[i + 1].trim());
+        match cols.get(i).copied().flatten() {
+            Some(c) if NUMBER_COLUMNS.contains(&c) => digits(a, 1..=3) && digits(b, 3..=3),
+            None | Some("activity" | "source" | "session" | "test") => {
+                is_text_value(a, opts) && is_text_value(b, opts)
+            }
+            _ => false,
+        }
+    };
+    let reads = |i: usize| {
+        (0..cols.len()).all(|j| {
+            let v = if j < i {
+                &rec[j]
+            } else if j == i {
+                ""
+            } else {
+                &rec[j + 1]
+            };
+            fits_column(cols[j], v, opts)
+        })
+    };
+    let found: Vec<usize> = (0..rec.len().saturating_sub(1))
+        .filter(|&i| i < cols.len() && joinable(i) && reads(i))
+        .collect();
+    match found[..] {
         [i] => Some(i),
         _ => None,
     }
@@ -3271,6 +3389,8 @@ impl Cells<'_> {
                         "write dates like `{example}` or as ISO 8601 date-times (`2026-04-01T07:30:00+02:00`), and check the day exists"
                     ),
                 };
+                // A delimiter inside the text before the date moved it one column on.
+                let hint = self.split_text_before(col).unwrap_or(hint);
                 diags.push(
                     self.warn(col, "unreadable date; the row is dropped")
                         .expected(format!(
@@ -3451,26 +3571,57 @@ impl Cells<'_> {
         }
     }
 
-    /// The likely cause of `col` not reading, when it is text that starts with a space right
-    /// after a text field (`2026-03-02,walk, brisk,30,` under `date,activity,minutes,met,notes`,
-    /// `brisk` in `minutes`): a delimiter inside the text before it, which split it across two
-    /// columns and moved every later value one column on, so the row has the header's width
-    /// and nothing else tells of it (a space after a comma is how people write a comma in
-    /// text; `kg,clinic` is two values). Said as how to write that value.
-    fn split_text_before(&self, col: &str) -> Option<String> {
+    /// The likely cause of `col` not reading, when it is text right after a text field: a
+    /// delimiter inside the text before it, which split it across two columns and moved every
+    /// later value one column on, so the row has the header's width and nothing else tells of
+    /// it. The evidence is either a space after the delimiter (`2026-03-02,walk, brisk,30,`
+    /// under `date,activity,minutes,met,notes`, `brisk` in `minutes`: how people write a comma
+    /// in text; `kg,clinic` is two values), or the row shifted back by one: every later value
+    /// fits the column before its own ([`fits_column`]) and one of them, as written, does not
+    /// fit its own (`2026-04-14` in `attended` of `Walk,talk,2026-04-14,yes` under
+    /// `session,date,attended,notes`; `Cycling,abc,6,` under
+    /// `date,activity,minutes,met,notes` has one value that does not read, and no hint). Said
+    /// as how to write that value. Numbers, dates, times and units that do not read ask it.
+    pub fn split_text_before(&self, col: &str) -> Option<String> {
         let i = *self.table.columns.get(col)?;
         let prev_i = i.checked_sub(1)?;
         let raw = self.table.raw_field(self.row, i)?;
-        let text = |t: &str| {
-            t.chars().any(char::is_alphabetic)
-                && numeric_parts(t).is_none()
-                && parse_when(t, self.opts).is_none()
-        };
-        if !raw.starts_with(' ') || !text(raw.trim()) {
+        let text = |t: &str| is_text_value(t, self.opts);
+        if !text(raw.trim()) {
             return None;
         }
         let prev = self.table.field(self.row, prev_i)?;
         if !text(prev) {
+            return None;
+        }
+        let ours = |j: usize| {
+            self.table
+                .columns
+                .iter()
+                .find(|&(_, &k)| k == j)
+                .map(|(&c, _)| c)
+        };
+        // Shifted back by one, every later value fits the column before its own; as written,
+        // one of them does not fit its own read column either: two failures one delimiter
+        // explains (a single value that does not read is more likely just wrong).
+        let shifted = || {
+            let later = i + 1..self.table.width;
+            later.clone().all(|j| {
+                fits_column(
+                    ours(j - 1),
+                    self.table.field(self.row, j).unwrap_or(""),
+                    self.opts,
+                )
+            }) && later.into_iter().any(|j| {
+                ours(j).is_some()
+                    && !fits_column(
+                        ours(j),
+                        self.table.field(self.row, j).unwrap_or(""),
+                        self.opts,
+                    )
+            })
+        };
+        if !raw.starts_with(' ') && !shifted() {
             return None;
         }
         let d = char::from(self.table.delimiter);

@@ -356,6 +356,7 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
         Kv::new("Sensitivity (LOCF)", &m.locf),
         Kv::new("Completers", &m.completers),
         Kv::new("Weekly trajectory", &m.trajectory),
+        Kv::new("Adherence medians", &m.adherence),
         Kv::new("Mean intervals", &m.mean_interval),
         Kv::new("Median intervals", &m.median_interval),
         Kv::new("Proportion intervals", &m.proportion_interval),

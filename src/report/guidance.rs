@@ -1198,12 +1198,24 @@ fn maintain(
 /// The safe-pace limit for this person, kg/week, when their loss may be faster than it (at the
 /// fast end of the slope's interval); `None` otherwise. One test for every phase that describes
 /// a falling weight.
+///
+/// On the limit is not over it: the limit, 1 % of the body weight, is computed in floating
+/// point (`0.01 × 40.3` is 0.40299999999999997), so a fast end of exactly −0.403 kg a week,
+/// the limit as the report prints it, was "faster than the usual safe limit". Only a pace
+/// beyond the limit by more than round-off ([`PACE_EPS`]) is, as the `outcomes` module's
+/// `fast_loss` flag and the BMI cut-offs judge theirs.
 fn too_fast(t: &Thresholds, f: &Facts) -> Option<f64> {
     match (f.slope, f.weight_kg) {
-        (Some(s), Some(w)) if s.lower.unwrap_or(s.value) < -t.max_rate(w) => Some(t.max_rate(w)),
+        (Some(s), Some(w)) if s.lower.unwrap_or(s.value) < -t.max_rate(w) - PACE_EPS => {
+            Some(t.max_rate(w))
+        }
         _ => None,
     }
 }
+
+/// Round-off margin of the safe-pace comparisons, kg/week (as `CUT_EPS` in the `outcomes`
+/// module: far below any difference a scale or the report shows).
+const PACE_EPS: f64 = 1e-9;
 
 /// Decimals for a rate printed beside the safe-pace limit `max`: "about 0.8 kg a week" against
 /// "a limit of about 0.8 kg a week" read as the same pace, so both get two when one would not
@@ -1267,7 +1279,8 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         );
         return g;
     }
-    if rate_fast > max {
+    // Beyond the limit by more than round-off (see `too_fast`).
+    if rate_fast > max + PACE_EPS {
         g.paragraphs.push(format!(
             "The estimate of your recent weight trend is still too uncertain to suggest an amount safely: a change sized for a loss of {} could, at the fast end of the estimate, mean losing more than {}. A few more weeks of regular weigh-ins will narrow it.",
             rate_words(target, f.units),
@@ -1806,6 +1819,38 @@ mod tests {
         assert_eq!(
             g.paragraphs,
             vec!["Your weight is coming down, at about 0.5 kg a week. There is nothing you need to change: keep going with the habits that are working for you.".to_string()]
+        );
+    }
+
+    /// The safe-pace limit is 1 % of the body weight, computed as 0.01 × kg: at 40.3 kg that is
+    /// 0.40299999999999997, so a fast end of exactly −0.403 kg a week (on the limit, and printed
+    /// as it) was "faster than the usual safe limit" by round-off. On the limit is not over it;
+    /// beyond it by 0.0001 kg is.
+    #[test]
+    fn a_pace_exactly_on_the_safe_limit_is_not_too_fast_by_round_off() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.weight_kg = Some(40.3);
+        assert!(t.max_rate(40.3) < 0.403, "the round-off this test is about");
+        let at = |lower: f64| Est {
+            value: -0.36,
+            lower: Some(lower),
+            upper: Some(-0.3),
+        };
+        f.slope = Some(at(-0.403));
+        assert_eq!(too_fast(&t, &f), None);
+        let g = keep_going(&t, &f, 1200.0);
+        assert_eq!(
+            g.paragraphs,
+            vec!["Your weight is coming down, at about 0.4 kg a week. There is nothing you need to change: keep going with the habits that are working for you.".to_string()]
+        );
+        f.slope = Some(at(-0.4031));
+        assert!(too_fast(&t, &f).is_some());
+        let g = keep_going(&t, &f, 1200.0);
+        assert!(
+            g.paragraphs[1].starts_with("The pace may be faster than the usual safe limit"),
+            "{:?}",
+            g.paragraphs
         );
     }
 

@@ -14,6 +14,8 @@ use crate::render::chart::{
 };
 use chrono::{Datelike as _, NaiveDate};
 use cohortpress_metric_adherence::view::AdherenceView as AdherenceResults;
+// The fewest days of a period with a rate per week: the module gives none under it.
+use cohortpress_metric_adherence::{MIN_DAYS_FOR_A_WEEKLY_RATE, PeriodCounts, period_counts};
 use cohortpress_metric_api::view::{Code, Interval};
 use cohortpress_metric_api::{FlagSeverity, LabTest, ParticipantData, Profile, UnitSystem};
 use cohortpress_metric_energy::view::{EnergyView as EnergyResults, PlateauCause, PlateauRow};
@@ -292,19 +294,15 @@ pub fn build(
     };
     let (adherence_view, activity_chart) = match &adherence_clipped {
         Some(a) => {
-            // The days the period's rates are taken over, as the module counts them: from
-            // enrolment (or the period's start) to the period's end or the day they left.
-            let last = match p.withdrew {
-                Some(w) if w < plan.period.to => w,
-                _ => plan.period.to,
-            };
-            let days = (last - plan.period.from.max(p.enrolled)).num_days() + 1;
+            // The period's counts and the days they are taken over, as the module counts
+            // them: from enrolment (or the period's start) to the period's end or the day they
+            // left.
             let (view, chart) = adherence_section(
                 a,
                 p.targets.activity_minutes_per_week,
                 &unread,
                 &super::ProgramView::new(plan).period_label,
-                days,
+                &period_counts(data, plan.period.from, plan.period.to),
             );
             (Some(view), Some(chart))
         }
@@ -336,11 +334,19 @@ pub fn build(
             // weeks to show.
             Some(p.enrolled).filter(|e| *e > plan.period.to - chrono::Duration::days(28)),
             // Weighed in as often as the target asks this period: more weigh-ins are then not
-            // what an unclear trend needs.
-            v.adherence
-                .as_ref()
-                .and_then(|a| a.weigh_ins_per_week)
-                .is_some_and(|w| w >= p.targets.weigh_ins_per_week),
+            // what an unclear trend needs. Under a week there is no rate: the count against
+            // the target scaled to those days, as the module judges a partial week.
+            v.adherence.as_ref().is_some_and(|a| {
+                let c = period_counts(data, plan.period.from, plan.period.to);
+                match a.weigh_ins_per_week {
+                    Some(w) => w >= p.targets.weigh_ins_per_week,
+                    None => {
+                        c.days > 0
+                            && c.weigh_in_days as f64 + 1e-9
+                                >= p.targets.weigh_ins_per_week * c.days as f64 / 7.0
+                    }
+                }
+            }),
         ),
         summary: summary(
             &v,
@@ -1563,60 +1569,54 @@ fn activity_unread(diags: &[Diagnostic]) -> ActivityUnread {
     }
 }
 
-/// The fewest days of a period over which the report gives a rate per week (see
-/// [`adherence_section`]).
-const MIN_DAYS_FOR_A_WEEKLY_RATE: i64 = 7;
-
 /// The habits section. Its rates are the reporting period's (`period`, as the report's title
 /// names it), the sessions and the longest run since enrolment: each label says which, since
 /// "Weigh-ins per week" beside "attended since you joined" read as the whole program's rate.
 ///
-/// `days` is how many days of the period the rates are taken over. Under a week
-/// ([`MIN_DAYS_FOR_A_WEEKLY_RATE`]) no rate per week is shown: the module scales the days it
-/// has to seven, and someone who joined two days before the period ended read "Days with a
-/// weigh-in per week 7.0" and "Activity minutes per week 210 (target 150)" from two 30-minute
-/// walks, a target met that no week has tested. The counts over those days are shown instead,
-/// as a practitioner reads a first few days (common practice: a weekly figure is a week's).
+/// `counts` are the period's counts and the days they are taken over. Under a week
+/// ([`MIN_DAYS_FOR_A_WEEKLY_RATE`]) the module gives no rate per week: scaled to seven days,
+/// someone who joined two days before the period ended read "Days with a weigh-in per week
+/// 7.0" and "Activity minutes per week 210 (target 150)" from two 30-minute walks, a target
+/// met that no week has tested. The counts over those days are shown instead, as a
+/// practitioner reads a first few days (common practice: a weekly figure is a week's).
 fn adherence_section(
     a: &AdherenceResults,
     target: f64,
     unread: &ActivityUnread,
     period: &str,
-    days: i64,
+    counts: &PeriodCounts,
 ) -> (AdherenceView, Chart) {
     let mut items = Vec::new();
     let f1 = |v: Option<f64>| v.map(|v| fmt::fixed(v, 1));
+    let days = counts.days;
     let short = (1..MIN_DAYS_FOR_A_WEEKLY_RATE).contains(&days);
     let day_s = |n: i64| format!("{n} {}", if n == 1 { "day" } else { "days" });
-    // The count behind a rate over `days` (the module's rate × days / 7).
-    let count = |rate: f64| rate * days as f64 / 7.0;
     let no_rate =
         format!("too few days for a rate per week, which needs {MIN_DAYS_FOR_A_WEEKLY_RATE}");
-    for (rate, what) in [
-        (a.weigh_ins_per_week, "a weigh-in"),
-        (a.food_log_days_per_week, "a food log"),
+    for (rate, n, what) in [
+        (a.weigh_ins_per_week, counts.weigh_in_days, "a weigh-in"),
+        (a.food_log_days_per_week, counts.food_log_days, "a food log"),
     ] {
-        let Some(rate) = rate else { continue };
         if short {
             items.push(Kv::new(
                 &format!("Days with {what}, {period}"),
-                &format!(
-                    "{} of {}; {no_rate}",
-                    fmt::fixed(count(rate), 0),
-                    day_s(days)
-                ),
+                &format!("{n} of {}; {no_rate}", day_s(days)),
             ));
-        } else if let Some(v) = f1(Some(rate)) {
+        } else if let Some(v) = f1(rate) {
             items.push(Kv::new(&format!("Days with {what} per week, {period}"), &v));
         }
     }
+    // Under a week, the minutes over those days (the module gives no rate); else the rate.
+    let minutes = if short {
+        counts.activity_minutes
+    } else {
+        a.activity_minutes_per_week
+    };
     // Never "0 minutes" when the log could not be read or there is none (the module then gives
     // no figure): say so instead.
     let shown = match unread {
-        ActivityUnread::File | ActivityUnread::NoLog => {
-            Some(a.activity_minutes_per_week.unwrap_or(0.0))
-        }
-        _ => a.activity_minutes_per_week,
+        ActivityUnread::File | ActivityUnread::NoLog => Some(minutes.unwrap_or(0.0)),
+        _ => minutes,
     };
     if let Some(v) = shown {
         let text = match unread {
@@ -1631,7 +1631,7 @@ fn adherence_section(
             ),
             ActivityUnread::Rows(n) if short => format!(
                 "{} in {} (target {} a week; {no_rate}); {} activity row{} could not be read and {} not counted",
-                fmt::fixed(count(v), 0),
+                fmt::fixed(v, 0),
                 day_s(days),
                 fmt::fixed(target, 0),
                 fmt::int(*n as f64),
@@ -1640,7 +1640,7 @@ fn adherence_section(
             ),
             ActivityUnread::Nothing if short => format!(
                 "{} in {} (target {} a week; {no_rate})",
-                fmt::fixed(count(v), 0),
+                fmt::fixed(v, 0),
                 day_s(days),
                 fmt::fixed(target, 0)
             ),
@@ -1705,8 +1705,23 @@ fn adherence_section(
             suppressed: false,
         });
         let offered = num_text(w.sessions_offered);
+        // A week of fewer than 7 days (the first, from the day they joined, the last, to the
+        // period's end or the day they left) says so: "28 Sep 2026 · 0 weigh-in days · 0
+        // activity min" in a September report read as a week with none, beside full weeks,
+        // when it held 3 days.
+        let week = match w.days_covered {
+            Some(n) if (1.0..7.0).contains(&n) => {
+                let n = n.round() as i64;
+                format!(
+                    "{} ({n} {})",
+                    fmt::date(d),
+                    if n == 1 { "day" } else { "days" }
+                )
+            }
+            _ => fmt::date(d),
+        };
         table.rows.push(vec![
-            fmt::date(d),
+            week,
             num_text(w.weigh_ins),
             num_text(w.food_log_days),
             if *unread == ActivityUnread::NoLog {
@@ -1725,6 +1740,14 @@ fn adherence_section(
         "Moderate-equivalent activity minutes by week, against the target of {} minutes.",
         fmt::fixed(target, 0)
     );
+    if a.weekly
+        .iter()
+        .any(|w| w.days_covered.is_some_and(|n| (1.0..7.0).contains(&n)))
+    {
+        alt.push_str(
+            " A week of fewer than 7 days (when you joined, or at the end of the period) gives its number of days in the table, and its counts are for those days only.",
+        );
+    }
     if *unread == ActivityUnread::NoLog {
         // No bars at all (the chart says there are no data): bars of 0 minutes, each labelled
         // "0", drew as measured what nobody logged, beside a caption saying the bars show none.
@@ -1755,6 +1778,87 @@ fn adherence_section(
 mod activity_unread_tests {
     use super::*;
 
+    /// Period counts over `n` days (what the module gives the report), nothing counted.
+    fn days(n: i64) -> PeriodCounts {
+        PeriodCounts {
+            days: n,
+            weigh_in_days: 0,
+            food_log_days: 0,
+            activity_minutes: None,
+        }
+    }
+
+    /// Sample program, September 2026, SG-001: the habits table's last row read "28 Sep 2026 ·
+    /// 0 · 1 · 0" beside full weeks, a week with no weigh-in and no activity, when the period
+    /// left it 3 days (28-30 September). A week of fewer than 7 days gives its days; the
+    /// caption says what they mean. With full weeks only, nothing is added.
+    #[test]
+    fn a_week_of_fewer_than_seven_days_says_how_many_it_covers() {
+        let week = |d: u32, days: f64| cohortpress_metric_adherence::view::WeekRow {
+            week_start: NaiveDate::from_ymd_opt(2026, 9, d).unwrap(),
+            days_covered: Some(days),
+            weigh_ins: Some(0.0),
+            food_log_days: Some(1.0),
+            activity_minutes: Some(0.0),
+            sessions_offered: None,
+            sessions_attended: None,
+            met_weigh_in_target: None,
+            met_food_log_target: None,
+            met_activity_target: None,
+        };
+        let adherence = AdherenceResults {
+            weekly: vec![week(2, 5.0), week(7, 7.0), week(28, 3.0), week(29, 1.0)],
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(
+            &adherence,
+            150.0,
+            &ActivityUnread::Nothing,
+            "September 2026",
+            &days(30),
+        );
+        let first: Vec<&str> = view
+            .chart
+            .table
+            .rows
+            .iter()
+            .map(|r| r[0].as_str())
+            .collect();
+        assert_eq!(
+            first,
+            [
+                "2 Sep 2026 (5 days)",
+                "7 Sep 2026",
+                "28 Sep 2026 (3 days)",
+                "29 Sep 2026 (1 day)"
+            ]
+        );
+        assert!(
+            view.chart.alt.ends_with(
+                " A week of fewer than 7 days (when you joined, or at the end of the period) gives its number of days in the table, and its counts are for those days only."
+            ),
+            "{}",
+            view.chart.alt
+        );
+        let full = AdherenceResults {
+            weekly: vec![week(7, 7.0)],
+            ..AdherenceResults::default()
+        };
+        let (view, _) = adherence_section(
+            &full,
+            150.0,
+            &ActivityUnread::Nothing,
+            "September 2026",
+            &days(30),
+        );
+        assert_eq!(view.chart.table.rows[0][0], "7 Sep 2026");
+        assert!(
+            !view.chart.alt.contains("fewer than 7 days"),
+            "{}",
+            view.chart.alt
+        );
+    }
+
     /// LIFE-003 of a hand-made pilot (no activity.csv): the activity chart drew a "0" over every
     /// week, while its caption said the bars show none and the tidy files leave the minutes
     /// empty (unknown, not zero).
@@ -1776,8 +1880,13 @@ mod activity_unread_tests {
             weekly: vec![week(1), week(8)],
             ..AdherenceResults::default()
         };
-        let (view, chart) =
-            adherence_section(&adherence, 150.0, &ActivityUnread::NoLog, "June 2026", 30);
+        let (view, chart) = adherence_section(
+            &adherence,
+            150.0,
+            &ActivityUnread::NoLog,
+            "June 2026",
+            &days(30),
+        );
         let Chart::Bars(bars) = &chart else {
             panic!("a bar chart")
         };
@@ -1788,8 +1897,13 @@ mod activity_unread_tests {
             view.chart.alt
         );
         // Someone who logged and did nothing that week still gets a bar of 0.
-        let (_, chart) =
-            adherence_section(&adherence, 150.0, &ActivityUnread::Nothing, "June 2026", 30);
+        let (_, chart) = adherence_section(
+            &adherence,
+            150.0,
+            &ActivityUnread::Nothing,
+            "June 2026",
+            &days(30),
+        );
         let Chart::Bars(bars) = &chart else {
             panic!("a bar chart")
         };
@@ -1806,7 +1920,7 @@ mod activity_unread_tests {
             150.0,
             &activity_unread(diags),
             "September 2026",
-            30,
+            &days(30),
         );
         view.items
             .iter()
@@ -1916,7 +2030,7 @@ mod activity_unread_tests {
             150.0,
             &ActivityUnread::Nothing,
             "September 2026",
-            30,
+            &days(30),
         );
         let items: Vec<(String, String)> = view
             .items
@@ -1947,7 +2061,8 @@ mod activity_unread_tests {
             longest_weigh_in_streak_days: Some(1.0),
             ..AdherenceResults::default()
         };
-        let (view, _) = adherence_section(&one, 150.0, &ActivityUnread::Nothing, "May 2026", 30);
+        let (view, _) =
+            adherence_section(&one, 150.0, &ActivityUnread::Nothing, "May 2026", &days(30));
         let streak = view
             .items
             .iter()
@@ -1963,14 +2078,23 @@ mod activity_unread_tests {
     /// there is no weekly rate; from 7 days on the rates are as before.
     #[test]
     fn under_a_week_of_days_the_habits_are_counts_not_weekly_rates() {
-        let adherence = AdherenceResults {
+        // The module's figures: under 7 days no rate, the counts over those days.
+        let short = AdherenceResults::default();
+        let week = AdherenceResults {
             weigh_ins_per_week: Some(7.0),
             food_log_days_per_week: Some(3.5),
             activity_minutes_per_week: Some(210.0),
             ..AdherenceResults::default()
         };
         let items = |days: i64, unread: &ActivityUnread| -> Vec<(String, String)> {
-            adherence_section(&adherence, 150.0, unread, "May 2026", days)
+            let counts = PeriodCounts {
+                days,
+                weigh_in_days: days.min(2) as usize,
+                food_log_days: 1,
+                activity_minutes: Some(30.0 * days.min(2) as f64),
+            };
+            let a = if days < 7 { &short } else { &week };
+            adherence_section(a, 150.0, unread, "May 2026", &counts)
                 .0
                 .items
                 .iter()

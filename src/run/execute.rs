@@ -590,9 +590,9 @@ pub fn finish(
     // write stops the run with the previous output in place; a swap that fails after it
     // leaves a record of a report never published, which only makes later audits stricter.
     if let Some((mut ledger, record)) = release {
-        ledger
-            .record(record)
-            .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
+        ledger.record(record).map_err(|e| {
+            RunError::Output(format!("group-report ledger: {e}; {}", staging.kept()))
+        })?;
     }
     let outputs: OutputSet = staging.commit()?;
     timing.commit_s = phase.elapsed().as_secs_f64();

@@ -393,6 +393,17 @@ fn a_release_the_ledger_cannot_record_is_not_published() {
     let o = run("2026-12-02");
     assert_eq!(o.code, 6, "{o:?}");
     assert!(o.stderr.contains("group-report ledger"), "{}", o.stderr);
+    // Named as the user knows it: the ledger file, not the temporary file (alone, it read
+    // "reports.ledger/ledger.tmp: Is a directory"), and what became of the outputs.
+    assert!(
+        o.stderr.contains("reports.ledger/ledger.json: ")
+            && o.stderr.contains(
+                "(written through ledger.tmp beside it; the file was not changed); the previous outputs in "
+            )
+            && o.stderr.contains("/reports were left as they were"),
+        "{}",
+        o.stderr
+    );
     // The new group report was put in place all the same, unrecorded: later audits never saw it.
     assert_eq!(
         tree_hashes(&out),

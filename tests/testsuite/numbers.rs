@@ -169,10 +169,119 @@ fn no_week_is_named_by_a_day_before_the_program() {
             "{rel}: {:?}",
             dates.iter().filter(|d| **d < start).collect::<Vec<_>>()
         );
+        // The energy table's week, and the habits table's, which gives its 5 days
+        // (Wednesday to Sunday).
         assert_eq!(
-            html.matches("<tr><td>1 Apr 2026</td>").count(),
-            2,
+            (
+                html.matches("<tr><td>1 Apr 2026</td>").count(),
+                html.matches("<tr><td>1 Apr 2026 (5 days)</td>").count()
+            ),
+            (1, 1),
             "{rel}: the first week of both weekly tables"
         );
     }
+}
+
+/// The sample program run over two days (1–2 April 2026): each participant's weekly rates were
+/// their two days scaled to seven, so participants.csv read `adherence.weigh_ins_per_week` 3.5
+/// (one weigh-in in two days) and the sponsor's group report gave medians of "7.0 days with a
+/// weigh-in" and "190 activity minutes per week" from two days. Under 7 days there is no rate:
+/// the tidy cell is empty (its descriptor says why), the group medians leave such people out
+/// (n 0 here, a count the small-cell rules show), and the group report's methods say so.
+/// Over a week (1–7 April) the rates are back.
+#[test]
+fn under_a_week_of_days_no_weekly_rate_reaches_the_tidy_metrics_or_the_group_medians() {
+    // Each run its own copy: a second release into the same ledger is audited against the first.
+    let run = |to: &str, out: &str| {
+        let t = ProgramTest::sample();
+        let o = t.run(&[
+            "run",
+            "{dir}",
+            "--from",
+            "2026-04-01",
+            "--to",
+            to,
+            "--out",
+            out,
+            "--formats",
+            "html",
+        ]);
+        assert!(o.code <= 4, "{o:?}");
+        let metrics = t.dir.join(out).join("metrics");
+        let mut r = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+        let header = r.headers().unwrap().clone();
+        let rows: Vec<csv::StringRecord> = r.records().map(|x| x.unwrap()).collect();
+        let group: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(metrics.join("group.json")).unwrap())
+                .unwrap();
+        let package = std::fs::read_to_string(metrics.join("datapackage.json")).unwrap();
+        let html = std::fs::read_to_string(t.dir.join(out).join("group/program.html")).unwrap();
+        (header, rows, group, package, html)
+    };
+    let (header, rows, group, package, html) = run("2026-04-02", "two-days");
+    assert!(rows.len() >= 30, "{}", rows.len());
+    let rates = [
+        "adherence.weigh_ins_per_week",
+        "adherence.food_log_days_per_week",
+        "adherence.activity_minutes_per_week",
+    ];
+    for name in rates {
+        let i = header.iter().position(|h| h == name).expect(name);
+        let filled: Vec<&str> = rows
+            .iter()
+            .map(|r| &r[i])
+            .filter(|c| !c.is_empty())
+            .collect();
+        assert!(filled.is_empty(), "{name}: {filled:?}");
+    }
+    let adherence = &group["program"]["stats"]["adherence"];
+    for key in [
+        "weigh_ins_per_week",
+        "food_log_days_per_week",
+        "activity_minutes_per_week",
+    ] {
+        assert_eq!(adherence[key]["n"]["value"], 0, "{key}: {adherence}");
+        assert!(
+            adherence[key]["median"].get("value").is_none(),
+            "{key}: {adherence}"
+        );
+    }
+    assert!(
+        package.contains(
+            "days with a weigh-in per week, period (empty when the period covers fewer than 7 of the participant's days in the program: too few for a rate per week)"
+        ),
+        "participants.csv's field description"
+    );
+    assert!(
+        package.contains("leave out anyone with fewer than 7 days in the period"),
+        "group.json's description"
+    );
+    assert!(
+        html.contains("Someone with fewer than 7 such days has no rate per week and is left out of the activity, weigh-in and food-log medians"),
+        "the group report's methods"
+    );
+    // 1–7 April: the two people who joined on 3 and 4 April (5 and 4 days) have no rate, the
+    // 39 who joined on 1 April have theirs. The weigh-in median's n (39 of 41) would give the
+    // two left out by subtraction: the small-cell rules see it and show n only as a range
+    // (each run is a fresh program: no earlier release in its ledger).
+    let (header, rows, group, _, _) = run("2026-04-07", "one-week");
+    let at = |name: &str| header.iter().position(|h| h == name).unwrap();
+    let (i, e) = (at("adherence.weigh_ins_per_week"), at("enrolled"));
+    let empty: Vec<&str> = rows
+        .iter()
+        .filter(|r| r[i].is_empty())
+        .map(|r| &r[e])
+        .collect();
+    assert_eq!(empty, ["2026-04-03", "2026-04-04"]);
+    let n = &group["program"]["stats"]["adherence"]["weigh_ins_per_week"]["n"];
+    assert_eq!(n["suppressed"], true, "{n}");
+    // The whole of April: everyone has 11 days or more, and a rate.
+    let (header, rows, group, _, _) = run("2026-04-30", "april");
+    let i = header
+        .iter()
+        .position(|h| h == "adherence.weigh_ins_per_week")
+        .unwrap();
+    assert!(rows.iter().all(|r| !r[i].is_empty()));
+    let n = &group["program"]["stats"]["adherence"]["weigh_ins_per_week"]["n"]["value"];
+    assert_eq!(n.as_u64(), Some(rows.len() as u64), "{n}");
 }

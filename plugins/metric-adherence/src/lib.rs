@@ -28,7 +28,11 @@
 //! # Period scalars
 //!
 //! Rates per week use the covered days of the reporting period (`ctx.period`), so a participant
-//! who enrolled mid-period is not penalised for the days before enrolment. A week counts towards
+//! who enrolled mid-period is not penalised for the days before enrolment. Under
+//! [`MIN_DAYS_FOR_A_WEEKLY_RATE`] covered days there is no rate per week (the three `*_per_week`
+//! scalars are empty): scaled to 7 days, two 30-minute walks read "210 minutes a week" and one
+//! weigh-in in two days "3.5 days a week", a rate no week has tested. [`period_counts`] gives
+//! the counts over those days instead. A week counts towards
 //! `weeks_meeting_activity_target_percent` when it overlaps the covered part of the period.
 //! Streaks and gaps are computed over the whole program to date.
 
@@ -53,6 +57,61 @@ use view::{AdherenceFlag, WEEKLY_LABEL, WeekRow, names};
 ///
 /// Two weeks without any record is a common practice threshold for a check-in call.
 pub const DEFAULT_GAP_FLAG_DAYS: i64 = 14;
+
+/// Fewer covered days of the reporting period than this give no rate per week (the
+/// `*_per_week` scalars are empty): a weekly figure covers a week (common practice).
+pub const MIN_DAYS_FOR_A_WEEKLY_RATE: i64 = 7;
+
+/// The reporting period's counts over its covered days (enrolment or the period's start to the
+/// period's end or the withdrawal day), the figures behind the rates per week.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PeriodCounts {
+    /// Covered days of the period (0 when none).
+    pub days: i64,
+    /// Days with a weigh-in.
+    pub weigh_in_days: usize,
+    /// Days with a food log.
+    pub food_log_days: usize,
+    /// Moderate-equivalent activity minutes; `None` when no activity was logged since enrolment
+    /// (unknown, not zero, as for the rate).
+    pub activity_minutes: Option<f64>,
+}
+
+/// The counts the period's rates per week are taken from, over the same days and records as
+/// the module's (`period_to` is the period's last day).
+pub fn period_counts(
+    data: &ParticipantData,
+    period_from: NaiveDate,
+    period_to: NaiveDate,
+) -> PeriodCounts {
+    let span = observation_span(data, period_to);
+    let rec = Records::collect(data, span.start, span.end);
+    counts_in(&rec, span, period_from)
+}
+
+/// Enrolment to the period's end, or to the withdrawal day when that is earlier.
+fn observation_span(data: &ParticipantData, period_to: NaiveDate) -> Span {
+    let profile = &data.profile;
+    let end = match profile.withdrew {
+        Some(w) if w < period_to => w,
+        _ => period_to,
+    };
+    Span {
+        start: profile.enrolled,
+        end,
+    }
+}
+
+fn counts_in(rec: &Records, span: Span, period_from: NaiveDate) -> PeriodCounts {
+    let (pa, pb) = (period_from.max(span.start), span.end);
+    PeriodCounts {
+        days: span_days(pa, pb),
+        weigh_in_days: count_in(&rec.weigh_in_days, pa, pb),
+        food_log_days: count_in(&rec.food_days, pa, pb),
+        activity_minutes: (!rec.activity_days.is_empty())
+            .then(|| sum_in(&rec.activity_minutes, pa, pb)),
+    }
+}
 
 /// Weekly adherence: weigh-ins, food logs, activity, sessions, streaks and gaps.
 #[derive(Debug, Clone, Copy, Default)]
@@ -230,7 +289,8 @@ impl MetricModule for AdherenceModule {
                 moderate-equivalent activity minutes (moderate + 2 × vigorous, by MET intensity; \
                 Physical Activity Guidelines for Americans 2nd ed. 2018, WHO 2020), group sessions \
                 offered and attended, and whether each weekly target was met (partial weeks scale \
-                the target by covered days / 7). Also rates for the reporting period, the longest \
+                the target by covered days / 7). Also rates for the reporting period (none under 7 \
+                covered days), the longest \
                 weigh-in streak and the longest gap without any record."
                     .into(),
             settings: vec![SettingSpec {
@@ -274,19 +334,19 @@ impl MetricModule for AdherenceModule {
                     names::WEIGH_INS_PER_WEEK,
                     "scalar",
                     "d/wk",
-                    "days with a weigh-in per week, period",
+                    "days with a weigh-in per week, period (empty when the period covers fewer than 7 of the participant's days in the program: too few for a rate per week)",
                 ),
                 OutputSpec::new(
                     names::FOOD_LOG_DAYS_PER_WEEK,
                     "scalar",
                     "d/wk",
-                    "food-log days per week, period",
+                    "food-log days per week, period (empty when the period covers fewer than 7 of the participant's days in the program: too few for a rate per week)",
                 ),
                 OutputSpec::new(
                     names::ACTIVITY_MINUTES_PER_WEEK,
                     "scalar",
                     "min/wk",
-                    "moderate-equivalent minutes per week, period (empty when no activity was logged since enrolment)",
+                    "moderate-equivalent minutes per week, period (empty when no activity was logged since enrolment, or when the period covers fewer than 7 of the participant's days in the program: too few for a rate per week)",
                 ),
                 OutputSpec::new(
                     names::SESSIONS_OFFERED,
@@ -372,14 +432,9 @@ impl MetricModule for AdherenceModule {
         data: &ParticipantData,
     ) -> Result<ModuleOutput, ModuleError> {
         let profile = &data.profile;
-        let start = profile.enrolled;
-        let end = match profile.withdrew {
-            Some(w) if w < ctx.period.to => w,
-            _ => ctx.period.to,
-        };
+        let span = observation_span(data, ctx.period.to);
         let withdrawn = profile.withdrew.is_some_and(|w| w <= ctx.period.to);
-        let rec = Records::collect(data, start, end);
-        let span = Span { start, end };
+        let rec = Records::collect(data, span.start, span.end);
         let weeks = weeks(&rec, data, span);
         // No activity entry at all from enrolment to the end of observation (no activity.csv,
         // an empty one, or one that could not be read): the activity figures are unknown, not
@@ -517,23 +572,30 @@ fn push_period_scalars(
 ) {
     let Span { start, end } = span;
     let (pa, pb) = (ctx.period.from.max(start), end);
-    let covered = span_days(pa, pb);
-    let per_week = |n: f64| (covered > 0).then(|| n * 7.0 / covered as f64);
+    let counts = counts_in(rec, span, ctx.period.from);
+    let covered = counts.days;
+    // Under a week of covered days, no rate: the counts scaled to 7 days would be a rate no
+    // week has tested (see MIN_DAYS_FOR_A_WEEKLY_RATE).
+    let per_week =
+        |n: f64| (covered >= MIN_DAYS_FOR_A_WEEKLY_RATE).then(|| n * 7.0 / covered as f64);
     output.push_scalar(
         names::WEIGH_INS_PER_WEEK,
-        per_week(count_in(&rec.weigh_in_days, pa, pb) as f64),
+        per_week(counts.weigh_in_days as f64),
         "d/wk",
         "Days weighed per week",
     );
     output.push_scalar(
         names::FOOD_LOG_DAYS_PER_WEEK,
-        per_week(count_in(&rec.food_days, pa, pb) as f64),
+        per_week(counts.food_log_days as f64),
         "d/wk",
         "Days with a food log per week",
     );
     output.push_scalar(
         names::ACTIVITY_MINUTES_PER_WEEK,
-        per_week(sum_in(&rec.activity_minutes, pa, pb)).filter(|_| activity_logged),
+        counts
+            .activity_minutes
+            .and_then(per_week)
+            .filter(|_| activity_logged),
         "min/wk",
         "Activity minutes per week (moderate-equivalent)",
     );

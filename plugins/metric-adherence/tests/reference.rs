@@ -520,3 +520,51 @@ fn no_activity_log_gives_no_activity_figures_not_zero() {
         t.rows.len()
     );
 }
+
+#[test]
+fn under_seven_covered_days_there_is_no_rate_per_week_but_the_counts() {
+    use cohortpress_metric_adherence::{PeriodCounts, period_counts};
+    // Enrolled on Wednesday 03-10, the period ends on Thursday 03-11: 2 covered days, one
+    // weigh-in, one food log, two 30-minute brisk walks. Scaled to 7 days that was 3.5 days
+    // with a weigh-in and 210 minutes a week: a rate no week has tested.
+    let mut data = empty("2027-03-10");
+    data.weights = vec![weigh("2027-03-10", 80.0)];
+    data.intake = vec![intake("2027-03-11", 1800.0)];
+    data.activity = vec![act("2027-03-10", 30.0, 4.0), act("2027-03-11", 30.0, 4.0)];
+    let out = run(&ctx("2027-03-01", "2027-03-11"), &data);
+    assert_eq!(out.scalar("weigh_ins_per_week"), None);
+    assert_eq!(out.scalar("food_log_days_per_week"), None);
+    assert_eq!(out.scalar("activity_minutes_per_week"), None);
+    assert_eq!(
+        period_counts(&data, d("2027-03-01"), d("2027-03-11")),
+        PeriodCounts {
+            days: 2,
+            weigh_in_days: 1,
+            food_log_days: 1,
+            activity_minutes: Some(60.0)
+        }
+    );
+    // 6 days: still none. 7 days (to Tuesday 03-16): the rate, as before.
+    let out = run(&ctx("2027-03-01", "2027-03-15"), &data);
+    assert_eq!(out.scalar("weigh_ins_per_week"), None);
+    let out = run(&ctx("2027-03-01", "2027-03-16"), &data);
+    assert_eq!(out.scalar("weigh_ins_per_week"), Some(1.0));
+    assert_eq!(out.scalar("food_log_days_per_week"), Some(1.0));
+    assert_eq!(out.scalar("activity_minutes_per_week"), Some(60.0));
+    // A short period of someone enrolled long before: 2 days of the period, no rate either.
+    let mut early = data.clone();
+    early.profile.enrolled = d("2027-03-01");
+    let out = run(&ctx("2027-03-10", "2027-03-11"), &early);
+    assert_eq!(out.scalar("weigh_ins_per_week"), None);
+    assert_eq!(
+        period_counts(&early, d("2027-03-10"), d("2027-03-11")).activity_minutes,
+        Some(60.0)
+    );
+    // No activity logged at all: unknown, not 0 minutes.
+    let mut none = data.clone();
+    none.activity.clear();
+    assert_eq!(
+        period_counts(&none, d("2027-03-01"), d("2027-03-11")).activity_minutes,
+        None
+    );
+}

@@ -2990,3 +2990,139 @@ fn an_energy_column_headed_by_its_unit_alone_is_read_in_that_unit() {
     assert!(d.is_empty(), "{d:#?}");
     assert_eq!(v.unwrap()[0].kcal, 1850.0);
 }
+
+/// The comma rules named a delimiter inside a value only where a space followed it, and only
+/// for a number that did not read. Before: `2026-05-02,walk,brisk,30` under
+/// `date,activity,minutes` and `2026-05-02,1,234,80` under `date,kcal,protein_g` gave "row has
+/// 4 fields but the header has 3" (the second with the hint "a decimal comma (`72,5`) splits
+/// a number"); `Walk,talk,2026-05-14,yes` under `session,date,attended,notes` gave "unreadable
+/// date" with a hint on date formats, and `clinic,room 2` before the unit "unknown weight
+/// unit" with none. Now each names the `,` and says to quote the value. A row that is merely
+/// wrong (`abc` minutes, `lbx` unit, `30,40` minutes) keeps its old words.
+#[test]
+fn a_comma_with_no_space_or_in_a_number_or_before_a_date_or_unit_is_named() {
+    let warnings = |diags: &[Diagnostic]| -> Vec<(Option<u64>, Option<u64>, String, String)> {
+        diags
+            .iter()
+            .filter(|x| x.severity == Severity::Warning)
+            .map(|x| {
+                (
+                    x.line,
+                    x.column,
+                    x.message.clone(),
+                    x.hint.clone().unwrap_or_default(),
+                )
+            })
+            .collect()
+    };
+    let quote = |v: &str| format!("quote the value: `\"{v}\"` (or write it without the `,`)");
+    let moved = |col: &str, v: &str, m: &str| {
+        format!(
+            "the `,` in the `{col}` value `{v}` is likely read as a delimiter, moving `{m}` and every value after it one column on: {}",
+            quote(v)
+        )
+    };
+    // (a) No space after the comma, in a text value: one field too many.
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        "date,activity,minutes\n2026-05-02,walk,brisk,30\n2026-05-03,walking,abc\n2026-05-04,walking,30,40\n2026-05-05,walking,45\n",
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(a.len(), 1);
+    let w = warnings(&diags);
+    assert_eq!(w.len(), 3, "{w:#?}");
+    assert_eq!(
+        w[0],
+        (
+            Some(2),
+            Some(2),
+            "row has one field too many (4 for the 3 columns of the header): the `,` in `activity` value `walk,brisk` (field 2) is read as a delimiter; the row is dropped".to_string(),
+            quote("walk,brisk")
+        )
+    );
+    // Merely wrong rows: no comma named (the shape warnings come first).
+    assert!(w[2].2.starts_with("not a number in `minutes`"), "{w:#?}");
+    assert!(w[2].3.starts_with("write a number such as `45`"), "{w:#?}");
+    assert!(
+        w[1].2.starts_with("row has 4 fields but the header has 3"),
+        "{w:#?}"
+    );
+    assert!(w[1].3.starts_with("a decimal comma (`72,5`)"), "{w:#?}");
+
+    // (c) A number's thousands split: `1,234` kcal.
+    let mut diags = Vec::new();
+    let days = parse_intake(
+        "date,kcal,protein_g\n2026-05-02,1,234,80\n2026-05-03,1500,70\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(days.len(), 1);
+    let w = warnings(&diags);
+    assert_eq!(
+        w,
+        [(
+            Some(2),
+            Some(2),
+            "row has one field too many (4 for the 3 columns of the header): the `,` in `kcal` value `1,234` (field 2) is read as a delimiter; the row is dropped".to_string(),
+            quote("1,234")
+        )]
+    );
+
+    // (b) The split moves a date: the row keeps the header's width (the notes left off).
+    let mut diags = Vec::new();
+    let s = parse_sessions(
+        "session,date,attended,notes\nS01 Start,2026-05-07,yes\nWalk,talk,2026-05-14,yes\nS03,someday,yes\n",
+        &CsvOptions::default(),
+        &ctx("sessions.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(s.len(), 1);
+    let w = warnings(&diags);
+    assert_eq!(w.len(), 2, "{w:#?}");
+    assert_eq!(
+        (w[0].0, w[0].1, w[0].3.as_str()),
+        (
+            Some(3),
+            Some(2),
+            moved("session", "Walk,talk", "talk").as_str()
+        )
+    );
+    assert!(w[0].2.starts_with("unreadable date"), "{w:#?}");
+    // `someday` after `S03`: no date follows it, so no comma is named.
+    assert!(w[1].3.starts_with("write dates like"), "{w:#?}");
+
+    // (b) The split moves a unit (and the time after it: `kg` is no time), with or without a
+    // space after the comma.
+    let (got, diags) = weights(
+        "date,weight,source,unit,time\n2026-05-01,69.5,home,kg\n2026-05-06,69.2,clinic,room 2,kg\n2026-05-07,69.0,clinic, room 2,kg\n2026-05-08,69.1,clinic,lbx\n",
+    );
+    assert_eq!(got.len(), 1);
+    let w = warnings(&diags);
+    assert_eq!(w.len(), 3, "{w:#?}");
+    assert_eq!(
+        (w[0].0, w[0].1, w[0].3.as_str()),
+        (
+            Some(3),
+            Some(4),
+            moved("source", "clinic,room 2", "room 2").as_str()
+        )
+    );
+    assert_eq!(
+        w[1].3,
+        moved("source", "clinic, room 2", "room 2"),
+        "{w:#?}"
+    );
+    assert!(
+        w[2].2.starts_with("unknown weight unit") && w[2].3.is_empty(),
+        "{w:#?}"
+    );
+}
