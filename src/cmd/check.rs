@@ -652,9 +652,9 @@ fn template_problems(
 
 /// The group-report ledger folder a run of this program would use — found as `run` finds it
 /// ([`crate::group::ledger::resolve_dir`], with `--state` when given, else as a run with the
-/// same `--out`, or without one: `report.state_dir`, else the ledger of the output folder) —
-/// judged as a run judges it
-/// when it starts ([`crate::group::ledger::Ledger::folder_problem`]): a run stops on such a
+/// same `--out`, or without one: `report.state_dir`, else the ledger that exists, else the
+/// program's new one beside `report.out`) — judged as a run judges it when it starts
+/// ([`crate::group::ledger::Ledger::folder_problem_of`]): a run stops on such a
 /// folder with exit code 6 before computing anything, after `check` had passed the program.
 /// `Err` (the message) when `--state` itself is refused (as `run` refuses it, a usage error).
 fn ledger_problems(
@@ -671,8 +671,9 @@ fn ledger_problems(
         Some(o) => o.to_path_buf(),
         None => prog.root.join(&prog.def.report.out),
     };
-    let dir = crate::group::ledger::resolve_dir(state, prog, &out_dir, true)?;
-    Ok(match crate::group::ledger::Ledger::folder_problem(&dir) {
+    let (dir, source) = crate::group::ledger::resolve_dir(state, prog, &out_dir, true)?;
+    let problem = crate::group::ledger::Ledger::folder_problem_of(&dir, source);
+    Ok(match problem {
         Ok(()) => Vec::new(),
         Err(p) => vec![
             Diagnostic::error(

@@ -33,12 +33,13 @@ pub enum Command {
         verbose: bool,
         /// The group-report ledger's folder, as given to `run --state`: `check` reports a
         /// folder the run would refuse. Default: the one a run without `--out` uses
-        /// (program.yaml's `report.state_dir`, else the ledger beside `report.out`).
+        /// (program.yaml's `report.state_dir`, else the program's own ledger beside
+        /// `report.out`).
         #[arg(long, value_name = "DIR")]
         state: Option<PathBuf>,
         /// The output folder, as given to `run --out`: without `--state`, the ledger judged is
-        /// the one such a run uses (the program's own when it has one, else the ledger beside
-        /// this folder).
+        /// the one such a run uses (the program's own when it has one, else this folder's, else
+        /// the one beside it that records this program, else the program's new one).
         #[arg(long, value_name = "DIR")]
         out: Option<PathBuf>,
     },
@@ -189,9 +190,12 @@ pub struct RunArgs {
     pub group_readable: bool,
     /// State folder of the group-report ledger (what earlier group reports published; each
     /// new one is audited against it). Default: program.yaml's `report.state_dir` (relative to
-    /// the program folder), else the ledger of the program's own output folder (`report.out`)
-    /// when it has one, else the output folder's name plus `.ledger`, beside it; this option
-    /// wins over `report.state_dir`. A ledger reached through a link is judged where it is.
+    /// the program folder), else the program's own ledger (`report.out`'s name plus `.ledger`,
+    /// beside it in the program folder) when it exists, else the output folder's when it has
+    /// one, else the one beside the output folder that records this program, else a new one
+    /// at the program's own place, whatever `--out` says (a program folder that cannot hold it
+    /// stops the run: give this option); this option wins over `report.state_dir`. A ledger
+    /// reached through a link is judged where it is.
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
 }
@@ -216,9 +220,10 @@ pub struct MergeArgs {
     /// Create output files and folders readable by the owner's group (0640/0750).
     #[arg(long)]
     pub group_readable: bool,
-    /// State folder of the group-report ledger (default: program.yaml's `report.state_dir`,
-    /// else the ledger of the program's own `report.out` when it has one, else `<out>.ledger`
-    /// beside the output; this option wins over `report.state_dir`).
+    /// State folder of the group-report ledger (default: as for `run`: program.yaml's
+    /// `report.state_dir`, else the ledger that exists of the program's own `report.out`, of
+    /// the output or beside it, else a new one beside `report.out`, whatever `--out` says; this
+    /// option wins over `report.state_dir`).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
 }

@@ -1,8 +1,9 @@
 //! The ledger: what earlier group reports published, kept so that each new report is audited
 //! together with them (a sponsor keeps every monthly report and every re-issue).
 //!
-//! The ledger lives in a state folder of the user's choice (`--state DIR`; default: the output
-//! folder's name plus `.ledger`, beside it — never inside the program's inputs). It holds:
+//! The ledger lives in a state folder of the user's choice (`--state DIR`; default: the
+//! program's own, its output folder's name plus `.ledger` beside it, `reports.ledger`, whatever
+//! `--out` says — never inside the program's inputs; see [`resolve_dir`]). It holds:
 //! - `secret.key`: 32 random bytes created on first use. Person tokens are a keyed hash of a
 //!   hash of the participant id, so the ledger names nobody and cannot be matched against ids
 //!   without this key.
@@ -99,49 +100,71 @@ pub fn default_dir(out_dir: &Path) -> PathBuf {
     out_dir.with_file_name(name)
 }
 
-/// The ledger folder of a run: `--state DIR` when given (relative to the working folder), else
-/// `report.state_dir` of program.yaml (relative to the program folder), else the ledger of the
-/// program's own output folder (`report.out`) when one exists there — a run into another
-/// folder (`--out`: a re-issue, a preview, a folder per month) is then audited against every
-/// release the program's runs recorded, instead of a new, empty ledger against which any
-/// difference of two reports would go unseen — else [`default_dir`] of the output folder when it
-/// holds a ledger, else the one ledger beside it that records this program's group reports (a
-/// folder per month, `--out reports/2026-06` after `reports/2026-05`, or `report.out` edited
-/// each month: a new ledger each month audited no report against the last, and a re-issue
-/// into a fresh folder after one withdrawal printed every count one lower), else a new ledger
-/// there. Refused (with the reason) when it would be inside the program's inputs or inside the
-/// output folder, and when more than one ledger beside the output folder records this
-/// program's group reports (which of them to audit against is the user's to say). With
-/// `group_report` false (a run of `--only` or a shard, which records nothing) no ledger beside
-/// is looked for.
+/// Where [`resolve_dir`] found a run's ledger folder: what the run says about it, and how a
+/// folder that cannot be used is explained.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StateSource {
+    /// Named: `--state DIR`, or `report.state_dir` of program.yaml.
+    Named,
+    /// A ledger that exists: the program's own, the output folder's, or the one beside it.
+    Found,
+    /// No ledger exists yet: the program's own place (`<program>/<report.out>.ledger`), made
+    /// there so that every later run finds it whatever `--out` says.
+    ProgramsNew,
+    /// The run writes no group report (`--only`, a shard): no ledger is used or made.
+    NoGroupReport,
+}
+
+/// The ledger folder of a run and where it was found: `--state DIR` when given (relative to
+/// the working folder), else `report.state_dir` of program.yaml (relative to the program
+/// folder), else the ledger that exists of, in this order: the program's own output folder
+/// (`report.out`) — a run into another folder (`--out`: a re-issue, a preview, a folder per
+/// month) is then audited against every release the program's runs recorded — the output
+/// folder ([`default_dir`]), and the one ledger beside the output folder that records this
+/// program's group reports (`--out reports/2026-06` after `reports/2026-05`, or `report.out`
+/// edited each month). When none exists, the new ledger is the program's own, beside
+/// `report.out` in the program folder, not beside `--out`: a new ledger beside each output
+/// folder audited no report against the last (`--out /srv/2026-05/reports`, then
+/// `/srv/2026-06/reports`, each in a parent of its own: a site of 15 in one release and a
+/// team of 12 inside it in the next gave the mean of the other 3). Refused (with the reason)
+/// when a named one would be inside the program's inputs or inside the output folder (or hold
+/// it), when the program's new one would be inside the output folder, when the output folder
+/// would be inside the one found, and when more than one ledger beside the output folder
+/// records this program's group reports
+/// (which of them to audit against is the user's to say). With `group_report` false (a run of
+/// `--only` or a shard, which records nothing) nothing beside is looked for and no ledger of
+/// the program's is named, so none is made.
 pub fn resolve_dir(
     cli: Option<&Path>,
     program: &crate::program::Program,
     out_dir: &Path,
     group_report: bool,
-) -> Result<PathBuf, String> {
+) -> Result<(PathBuf, StateSource), String> {
     let cwd = std::env::current_dir().unwrap_or_default();
+    let root = cwd.join(&program.root);
+    let out = cwd.join(out_dir);
     let (dir, named_by) = match (cli, &program.def.report.state_dir) {
         (Some(d), _) => (cwd.join(d), "--state"),
-        (None, Some(d)) => (cwd.join(&program.root).join(d), "report.state_dir"),
+        (None, Some(d)) => (root.join(d), "report.state_dir"),
         (None, None) => {
-            let program_out = cwd.join(&program.root).join(&program.def.report.out);
-            let programs = default_dir(&program_out);
+            let programs = default_dir(&root.join(&program.def.report.out));
             let has_ledger = |d: &Path| {
                 std::fs::symlink_metadata(d.join(LEDGER_FILE)).is_ok_and(|m| m.is_file())
             };
             let own = default_dir(out_dir);
-            let chosen = if has_ledger(&programs) {
-                programs
-            } else if has_ledger(&cwd.join(&own)) || !group_report {
+            let (chosen, source) = if has_ledger(&programs) {
+                (programs, StateSource::Found)
+            } else if has_ledger(&cwd.join(&own)) {
+                return Ok((own, StateSource::Found));
+            } else if !group_report {
                 // A run that writes no group report (`--only`, a shard) records nothing, so
                 // it neither looks for a ledger beside nor is stopped by two of them.
-                return Ok(own);
+                return Ok((own, StateSource::NoGroupReport));
             } else {
                 // One rule for every run without a ledger named: the program's releases are
                 // audited together wherever they were found, never each against nothing.
                 match ledgers_beside(&cwd.join(&own), &program.info.id).as_slice() {
-                    [] => return Ok(own),
+                    [] => (programs, StateSource::ProgramsNew),
                     [one] => {
                         tracing::info!(
                             "group-report ledger {}: used for this report, as it records this \
@@ -149,7 +172,7 @@ pub fn resolve_dir(
                              which has no ledger of its own; this report is audited against them",
                             one.display()
                         );
-                        one.clone()
+                        (one.clone(), StateSource::Found)
                     }
                     many => {
                         return Err(format!(
@@ -171,7 +194,7 @@ pub fn resolve_dir(
             // folder, fail there, and leave a lock file that made every later run refuse the
             // ledger (exit 6). (Every other place is judged by the output folder's own checks.)
             let lexical = crate::program::load::lexical;
-            if lexical(&cwd.join(out_dir)).starts_with(lexical(&chosen)) {
+            if lexical(&out).starts_with(lexical(&chosen)) {
                 return Err(format!(
                     "--out {}: the output folder would be inside the program's ledger folder {}, \
                      which holds the ledger's files only; name an output folder outside it",
@@ -179,11 +202,27 @@ pub fn resolve_dir(
                     chosen.display()
                 ));
             }
-            return Ok(chosen);
+            // A new ledger of the program's inside the output folder (`report.out` a full
+            // path, `--out` its parent) would be replaced with the output by every run. (An
+            // output folder that holds the program folder, or lies among its inputs, is
+            // refused by the output folder's own checks, in their words and with their exit
+            // code.)
+            if source == StateSource::ProgramsNew
+                && !lexical(&root).starts_with(lexical(&out))
+                && lexical(&chosen).starts_with(lexical(&out))
+            {
+                return Err(format!(
+                    "--out {}: no group-report ledger records this program yet, and its own \
+                     ledger {} would be inside this output folder, which every run replaces; \
+                     name an output folder that does not hold it, or a ledger folder with \
+                     --state DIR (or report.state_dir)",
+                    out_dir.display(),
+                    chosen.display()
+                ));
+            }
+            return Ok((chosen, source));
         }
     };
-    let root = cwd.join(&program.root);
-    let out = cwd.join(out_dir);
     match crate::program::load::state_dir_problem(
         &root,
         &dir,
@@ -194,7 +233,7 @@ pub fn resolve_dir(
             "{named_by} {}: the ledger folder would be {why}",
             dir.display()
         )),
-        None => Ok(dir),
+        None => Ok((dir, StateSource::Named)),
     }
 }
 
@@ -282,8 +321,27 @@ impl Ledger {
     /// of its own (missing, or holding only the ledger's files) and, when there, a
     /// `ledger.json` that reads. [`Ledger::open`] checks it again under the lock. `check`
     /// reports the same problem ([`Ledger::folder_problem`]).
-    pub fn check_folder(dir: &Path) -> std::io::Result<()> {
-        Self::folder_problem(dir).map_err(std::io::Error::from)
+    pub fn check_folder(dir: &Path, source: StateSource) -> std::io::Result<()> {
+        Self::folder_problem_of(dir, source).map_err(std::io::Error::from)
+    }
+
+    /// [`Ledger::folder_problem`] of the folder a run uses, found as [`resolve_dir`] says:
+    /// the program's new ledger that cannot be made (a read-only program folder, a file in the
+    /// way) says whose it would be and why it is made there. It is never made elsewhere
+    /// instead: a ledger beside each `--out` audited no report against the last.
+    pub fn folder_problem_of(dir: &Path, source: StateSource) -> Result<(), FolderProblem> {
+        Self::folder_problem(dir).map_err(|mut p| {
+            if source == StateSource::ProgramsNew {
+                p.why = format!(
+                    "{}; {} would be the program's own ledger, made beside report.out in the \
+                     program folder as no ledger records this program yet, so that every later \
+                     run finds it whatever --out says",
+                    p.why,
+                    dir.display()
+                );
+            }
+            p
+        })
     }
 
     /// [`Ledger::check_folder`] with the file at fault and the reason apart.

@@ -364,7 +364,7 @@ pub fn validate_program(root: &Path, def: &ProgramDef, text: &str) -> Vec<Diagno
             err("report.state_dir", format!("the ledger folder would be {why}"))
                 .found(state.display().to_string())
                 .expected("a folder outside participants/, the templates folder and the output folder")
-                .hint("the ledger must never sit among the inputs; remove the key to keep it beside the output as `<out>.ledger`"),
+                .hint("the ledger must never sit among the inputs; remove the key to keep it beside `report.out` as `<report.out>.ledger`, the program's own"),
         );
     }
     let max_keys = crate::limits::MAX_GROUP_BY_KEYS;

@@ -437,7 +437,7 @@ pub fn check_ledger_folder(plan: &RunPlan) -> Result<(), RunError> {
     if !plan.only.is_empty() {
         return Ok(());
     }
-    group::ledger::Ledger::check_folder(&plan.state_dir)
+    group::ledger::Ledger::check_folder(&plan.state_dir, plan.state_source)
         .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))
 }
 
@@ -505,7 +505,23 @@ pub fn finish(
                 plan.out_dir.display()
             );
         }
-        if ledger.is_new() && plan.out_named_by == "--out" {
+        // The program's own ledger, made because no ledger recorded it: every later run
+        // finds it, whatever `--out` says, so this is no longer a warning.
+        if ledger.is_new() && plan.state_source == group::ledger::StateSource::ProgramsNew {
+            tracing::info!(
+                "group-report ledger {}: created as this program's own ledger, beside \
+                 report.out, since no ledger records its group reports yet (none there, none \
+                 of the output folder, none beside it); every later run of the program is \
+                 audited against it, whatever --out says; if earlier reports of this program \
+                 were recorded in a ledger elsewhere, name that one with --state (or \
+                 report.state_dir) instead",
+                ledger.dir().display()
+            );
+        }
+        if ledger.is_new()
+            && plan.out_named_by == "--out"
+            && plan.state_source == group::ledger::StateSource::Named
+        {
             tracing::warn!(
                 "group-report ledger {}: a new ledger, so this group report is audited against \
                  no earlier release; if earlier group reports of this program were written \

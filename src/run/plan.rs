@@ -90,6 +90,8 @@ pub struct RunPlan {
     pub key: RunKey,
     /// State folder of the group-report ledger (`--state`; see [`crate::group::ledger::resolve_dir`]).
     pub state_dir: PathBuf,
+    /// Where `state_dir` was found (named, an existing ledger, or the program's new one).
+    pub state_source: group::ledger::StateSource,
 }
 
 impl RunPlan {
@@ -296,7 +298,7 @@ pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
     }
     let key = run_key(&program, &modules, period, as_of, &formats)?;
     let group_report = args.only.is_empty() && args.shard.is_none();
-    let state_dir =
+    let (state_dir, state_source) =
         group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir, group_report)
             .map_err(usage)?;
     Ok(RunPlan {
@@ -314,6 +316,7 @@ pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
         access: access(args.group_readable),
         key,
         state_dir,
+        state_source,
     })
 }
 
@@ -353,7 +356,7 @@ pub fn plan_for_merge(
         None => (program.root.join(&program.def.report.out), "report.out"),
     };
     let key = run_key(&program, &modules, period, as_of, &formats)?;
-    let state_dir =
+    let (state_dir, state_source) =
         group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir, only.is_empty())
             .map_err(usage)?;
     Ok(RunPlan {
@@ -371,6 +374,7 @@ pub fn plan_for_merge(
         access: access(args.group_readable),
         key,
         state_dir,
+        state_source,
     })
 }
 

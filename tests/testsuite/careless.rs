@@ -617,6 +617,10 @@ fn an_output_folder_that_is_a_mount_point_is_refused_before_anything_is_done() {
     );
     let parent = out.parent().unwrap();
     assert!(!parent.join("out.ledger").exists(), "no release recorded");
+    assert!(
+        !t.dir.join("reports.ledger").exists(),
+        "no release recorded"
+    );
     // A folder inside it works.
     let inside = out.join("reports");
     let o = t.run(&[
@@ -802,9 +806,11 @@ fn check_says_an_output_folder_on_a_read_only_file_system_cannot_be_written() {
 /// An output folder whose name is not UTF-8 (a Latin-1 `é` from an old script: byte 0xE9): its
 /// lock file, staging folder, previous copy and ledger were named from the name's text, with
 /// U+FFFD for the byte, so `rapport\xe9` and `rapport\xe8` shared one lock, one staging folder,
-/// one previous copy and one ledger, none of them `<out>.ledger`. Named byte for byte now. (The
-/// second folder has no ledger of its own and the first's lies beside it, recording this
-/// program: that one is used, so only the first run makes a ledger.)
+/// one previous copy and one ledger, none of them `<out>.ledger`. Named byte for byte now. (A
+/// new ledger is the program's own, made by the first run and used by the second; the ledger an
+/// output folder already has, `<out>.ledger` beside it, is found under its name byte for byte:
+/// with both folders' ledgers there, a name read as `rapport\u{fffd}.ledger` would find none of
+/// its own and two beside it, and stop with exit 2.)
 #[test]
 fn an_output_folder_name_that_is_not_utf8_gets_files_of_its_own() {
     use std::os::unix::ffi::OsStrExt;
@@ -815,9 +821,14 @@ fn an_output_folder_name_that_is_not_utf8_gets_files_of_its_own() {
         v.push(b);
         std::ffi::OsStr::from_bytes(&v).to_os_string()
     };
-    for b in [0xe9, 0xe8] {
+    let ledger_of = |b: u8| {
+        let mut ledger = name(b);
+        ledger.push(".ledger");
+        parent.join(ledger)
+    };
+    let run = |b: u8| {
         let out = parent.join(name(b));
-        let o = t.run_os(&[
+        t.run_os(&[
             "run".as_ref(),
             "{dir}".as_ref(),
             "--as-of".as_ref(),
@@ -826,19 +837,30 @@ fn an_output_folder_name_that_is_not_utf8_gets_files_of_its_own() {
             "html".as_ref(),
             "--out".as_ref(),
             out.as_os_str(),
-        ]);
+        ])
+    };
+    let programs = t.dir.join("reports.ledger");
+    for b in [0xe9, 0xe8] {
+        let o = run(b);
         assert_eq!(o.code, 0, "{o:?}");
-        let mut ledger = name(0xe9);
-        ledger.push(".ledger");
-        assert!(parent.join(&ledger).join("ledger.json").is_file(), "{o:?}");
+        assert!(programs.join("ledger.json").is_file(), "{o:?}");
+        assert!(!ledger_of(b).exists());
         let mut lock = std::ffi::OsString::from(".");
         lock.push(name(b));
         lock.push(".lock");
         assert!(parent.join(&lock).is_file());
     }
-    let mut second = name(0xe8);
-    second.push(".ledger");
-    assert!(!parent.join(&second).exists());
+    // Each output folder's own ledger, beside it (as an earlier version made them).
+    std::fs::create_dir(ledger_of(0xe8)).unwrap();
+    for f in ["ledger.json", "secret.key"] {
+        std::fs::copy(programs.join(f), ledger_of(0xe8).join(f)).unwrap();
+    }
+    std::fs::rename(&programs, ledger_of(0xe9)).unwrap();
+    for b in [0xe9, 0xe8] {
+        let o = run(b);
+        assert_eq!(o.code, 0, "{o:?}");
+        assert!(!programs.exists(), "{o:?}");
+    }
     let real: Vec<_> = fs::read_dir(&parent)
         .unwrap()
         .map(|e| e.unwrap().file_name())

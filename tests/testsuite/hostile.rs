@@ -113,13 +113,15 @@ fn names_cannot_inject_html_and_ids_cannot_escape_the_output_folder() {
         .collect();
     let mut parent = parent;
     parent.sort();
-    // Beside the program: the output, its lock and the group report's publication ledger.
-    assert_eq!(parent, [".out.lock", "out", "out.ledger", "program"]);
-    assert_eq!(
-        tree_hashes(&t.dir),
-        inputs_before,
-        "inputs are never written"
-    );
+    // Beside the program: the output and its lock. The group report's publication ledger is
+    // the program's own, beside `report.out` in the program folder, whatever `--out` says.
+    assert_eq!(parent, [".out.lock", "out", "program"]);
+    assert!(t.dir.join("reports.ledger/ledger.json").is_file());
+    let inputs_after: Vec<_> = tree_hashes(&t.dir)
+        .into_iter()
+        .filter(|(p, _)| !p.starts_with("reports.ledger/"))
+        .collect();
+    assert_eq!(inputs_after, inputs_before, "inputs are never written");
 }
 
 /// "Billion laughs": nine levels of nine-fold aliases (9^9 leaves once expanded), as a block
@@ -1118,7 +1120,8 @@ fn lock_files_are_never_opened_through_a_link() {
     assert!(!Path::new(&o).exists(), "nothing was published");
 
     std::fs::remove_file(base.join(".out.lock")).unwrap();
-    let ledger = base.join("out.ledger");
+    // The ledger is the program's own (none exists yet), whatever `--out` says.
+    let ledger = t.dir.join("reports.ledger");
     std::fs::create_dir(&ledger).unwrap();
     std::os::unix::fs::symlink(elsewhere.join("made-by-ledger"), ledger.join("ledger.lock"))
         .unwrap();

@@ -145,8 +145,8 @@ fn group_ledger_reached_through_a_link_is_judged_where_it_really_is() {
 /// new, empty ledger beside the new folder. Real figures of the sample program: its September
 /// report printed 30 people at 3 % loss; the same month cut two days short (to 28 September)
 /// would print 31, and the difference is one person's milestone. Against the program's ledger
-/// that count is hidden (a range); a run with no program ledger to share warns that its ledger
-/// is new.
+/// that count is hidden (a range). With no ledger anywhere yet, the run makes the program's
+/// own (not one beside its `--out`), so the next run finds it, and says so (INFO).
 #[test]
 fn a_run_into_another_folder_is_audited_against_the_programs_ledger() {
     let t = ProgramTest::sample();
@@ -184,20 +184,30 @@ fn a_run_into_another_folder_is_audited_against_the_programs_ledger() {
     assert_eq!(ledger["releases"].as_array().unwrap().len(), 2);
     assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
 
-    // No ledger of the program's own to share: the run says its audit starts from nothing.
+    // No ledger at all yet: the run makes the program's own (it made `elsewhere.ledger` and
+    // warned that its audit started from nothing, as would every later run into a new folder).
     let fresh = ProgramTest::sample();
     let out = fresh.dir.parent().unwrap().join("elsewhere");
     let out_s = out.to_string_lossy().into_owned();
     let o = fresh.run(&[&["run", "{dir}"][..], &as_of, &["--out", &out_s]].concat());
     assert_eq!(o.code, 4, "{o:?}");
-    assert!(o.stderr.contains("a new ledger"), "{}", o.stderr);
+    assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
     assert!(
-        fresh
+        o.stderr.contains(&format!(
+            "group-report ledger {}: created as this program's own ledger",
+            fresh.dir.join("reports.ledger").display()
+        )),
+        "{}",
+        o.stderr
+    );
+    assert!(fresh.dir.join("reports.ledger/ledger.json").is_file());
+    assert!(
+        !fresh
             .dir
             .parent()
             .unwrap()
-            .join("elsewhere.ledger/ledger.json")
-            .is_file()
+            .join("elsewhere.ledger")
+            .exists()
     );
 }
 
@@ -592,15 +602,7 @@ fn a_release_into_a_fresh_folder_beside_the_last_is_audited_against_it() {
         (o, g)
     };
     let (_, first) = run("2026-08");
-    let kiln = |g: &serde_json::Value| {
-        g["splits"][0]["sections"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .find(|s| s["label"] == "Kiln Row")
-            .unwrap()["stats"]["enrolment"]["enrolled"]
-            .clone()
-    };
+    let kiln = kiln_row_enrolled;
     assert_eq!(
         first["program"]["stats"]["enrolment"]["enrolled"]["value"],
         50
@@ -614,37 +616,309 @@ fn a_release_into_a_fresh_folder_beside_the_last_is_audited_against_it() {
     assert_ne!(enrolled["value"], 49, "{enrolled}");
     assert_ne!(kiln(&second)["value"], 22, "{}", kiln(&second));
     // No exact count of the re-issue is one to ten below the same count in the first.
-    fn exact(v: &serde_json::Value, path: String, out: &mut Vec<(String, i64)>) {
-        match v {
-            serde_json::Value::Object(m) => {
-                if let Some(n) = m.get("value").and_then(serde_json::Value::as_i64)
-                    && !path.contains("percent")
-                {
-                    out.push((path.clone(), n));
-                }
-                for (k, x) in m {
-                    exact(x, format!("{path}/{k}"), out);
-                }
-            }
-            serde_json::Value::Array(a) => {
-                for (i, x) in a.iter().enumerate() {
-                    exact(x, format!("{path}/{i}"), out);
-                }
-            }
-            _ => {}
-        }
-    }
-    let (mut a, mut b) = (Vec::new(), Vec::new());
-    exact(&first, String::new(), &mut a);
-    exact(&second, String::new(), &mut b);
-    let b: std::collections::BTreeMap<_, _> = b.into_iter().collect();
-    let close: Vec<_> = a
-        .iter()
-        .filter(|(p, _)| p.contains("/enrolment/") || p.contains("/milestones/"))
-        .filter_map(|(p, n)| b.get(p).map(|m| (p, n, m)))
-        .filter(|(_, n, m)| (1..=10).contains(&(**n - **m)))
-        .collect();
+    let close = counts_one_to_ten_lower(&first, &second);
     assert!(close.is_empty(), "{close:?}");
+}
+
+/// Every exact count (`value`, not a percent) of a group.json, by its path.
+fn exact_counts(v: &serde_json::Value, path: String, out: &mut Vec<(String, i64)>) {
+    match v {
+        serde_json::Value::Object(m) => {
+            if let Some(n) = m.get("value").and_then(serde_json::Value::as_i64)
+                && !path.contains("percent")
+            {
+                out.push((path.clone(), n));
+            }
+            for (k, x) in m {
+                exact_counts(x, format!("{path}/{k}"), out);
+            }
+        }
+        serde_json::Value::Array(a) => {
+            for (i, x) in a.iter().enumerate() {
+                exact_counts(x, format!("{path}/{i}"), out);
+            }
+        }
+        _ => {}
+    }
+}
+
+/// The enrolment and milestone counts `second` prints exactly 1 to 10 below the same count in
+/// `first` (two group.json files): each such difference is a small group's figure.
+fn counts_one_to_ten_lower(
+    first: &serde_json::Value,
+    second: &serde_json::Value,
+) -> Vec<(String, i64, i64)> {
+    let (mut a, mut b) = (Vec::new(), Vec::new());
+    exact_counts(first, String::new(), &mut a);
+    exact_counts(second, String::new(), &mut b);
+    let b: std::collections::BTreeMap<_, _> = b.into_iter().collect();
+    a.into_iter()
+        .filter(|(p, _)| p.contains("/enrolment/") || p.contains("/milestones/"))
+        .filter_map(|(p, n)| b.get(&p).map(|m| (p, n, *m)))
+        .filter(|(_, n, m)| (1..=10).contains(&(n - m)))
+        .collect()
+}
+
+/// Kiln Row's enrolled count in a group.json of the sample program (split by site).
+fn kiln_row_enrolled(g: &serde_json::Value) -> serde_json::Value {
+    g["splits"][0]["sections"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["label"] == "Kiln Row")
+        .unwrap()["stats"]["enrolment"]["enrolled"]
+        .clone()
+}
+
+/// Output folders in a parent of their own each release (`--out srv/2026-08/reports`, then
+/// `--out srv/2026-08-reissue/reports` after SG-007 withdrew consent and her folder was
+/// removed), with no --state: no ledger lay beside the second folder, so it started a new
+/// one beside itself, and its report was audited against nothing (a warning only): whole
+/// program enrolled 50 then 49, Kiln Row 23 then 22. The first run now makes the program's own
+/// ledger (`reports.ledger` in the program folder, beside `report.out`) and says so; the
+/// second finds it there, whatever `--out` says, and is audited against the first.
+#[test]
+fn releases_into_folders_of_different_parents_are_audited_against_one_another() {
+    let t = ProgramTest::sample();
+    let srv = t.dir.parent().unwrap().join("srv");
+    let run = |month: &str| {
+        let out = srv.join(month).join("reports");
+        let out_s = out.to_string_lossy().into_owned();
+        let args = [
+            "run",
+            "{dir}",
+            "--period",
+            "2026-08",
+            "--as-of",
+            "2026-09-02",
+        ];
+        let o = t.run(&[&args[..], &["--formats", "html", "--out", &out_s]].concat());
+        assert_eq!(o.code, 4, "{o:?}"); // the sample's planted errors
+        let g: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(out.join("metrics/group.json")).unwrap())
+                .unwrap();
+        assert!(
+            !srv.join(month).join("reports.ledger").exists(),
+            "no ledger beside --out"
+        );
+        (o, g)
+    };
+    let programs = t.dir.join("reports.ledger");
+    let (o, first) = run("2026-08");
+    assert!(programs.join("ledger.json").is_file());
+    let line = o
+        .stderr
+        .lines()
+        .find(|l| l.contains("created as this program's own ledger"))
+        .unwrap_or_else(|| panic!("{}", o.stderr));
+    assert!(
+        line.contains(" INFO ") && line.contains(&programs.display().to_string()),
+        "{line}"
+    );
+    assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
+    assert_eq!(
+        first["program"]["stats"]["enrolment"]["enrolled"]["value"],
+        50
+    );
+    assert_eq!(kiln_row_enrolled(&first)["value"], 23);
+
+    std::fs::remove_dir_all(t.dir.join("participants/SG-007")).unwrap();
+    let (o, second) = run("2026-08-reissue");
+    assert!(
+        !o.stderr.contains("a new ledger") && !o.stderr.contains("created as"),
+        "{}",
+        o.stderr
+    );
+    let ledger: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(programs.join("ledger.json")).unwrap()).unwrap();
+    assert_eq!(ledger["releases"].as_array().unwrap().len(), 2);
+    // Against nothing it printed 49 and 22: SG-007's site, milestones and weight change.
+    let enrolled = &second["program"]["stats"]["enrolment"]["enrolled"];
+    assert_ne!(enrolled["value"], 49, "{enrolled}");
+    assert_ne!(
+        kiln_row_enrolled(&second)["value"],
+        22,
+        "{}",
+        kiln_row_enrolled(&second)
+    );
+    let close = counts_one_to_ten_lower(&first, &second);
+    assert!(close.is_empty(), "{close:?}");
+}
+
+/// The program's own place cannot hold a new ledger: a file in the way, or a program folder on
+/// a read-only file system (a share mounted `ro`) with `--out` elsewhere. Each such run used to
+/// start a new ledger beside `--out`; it must not fall back to one there, so it stops before
+/// any participant is computed (exit 6), naming the folder and saying to give `--state`, and
+/// `check` says the same. With `--state`, the run goes ahead. The read-only case needs the
+/// right to mount (root, as on the project's test machine) and is skipped without it.
+#[test]
+fn a_program_whose_own_ledger_cannot_be_made_is_refused_before_anything_is_computed() {
+    let t = ProgramTest::fixture("report-small");
+    let base = t.dir.parent().unwrap().to_path_buf();
+    let out = base.join("srv/2026-11/reports");
+    let out_s = out.to_string_lossy().into_owned();
+    let refused = |program: &str, at_fault: &std::path::Path| {
+        let args = ["--as-of", AS_OF, "--out", &out_s];
+        let o = t.run(&[&["run", program, "--formats", "html"][..], &args].concat());
+        assert_eq!(o.code, 6, "{o:?}");
+        assert!(
+            o.stderr
+                .contains(&format!("group-report ledger: {}: ", at_fault.display())),
+            "{}",
+            o.stderr
+        );
+        assert!(
+            o.stderr.contains("--state") && o.stderr.contains("program's own ledger"),
+            "{}",
+            o.stderr
+        );
+        // Refused before the participants: the line that starts them is not logged.
+        assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+        assert!(!out.exists() && !base.join("srv/2026-11/reports.ledger").exists());
+        let c = t.run(&[&["check", program][..], &args].concat());
+        assert_eq!(c.code, 6, "check agrees with run: {c:?}");
+        assert!(
+            c.stdout
+                .contains(&format!("{}: group-report ledger: ", at_fault.display()))
+                && c.stdout.contains("program's own ledger"),
+            "{}",
+            c.stdout
+        );
+        o.stderr
+    };
+    // A file in the way.
+    let in_the_way = t.dir.join("reports.ledger");
+    std::fs::write(&in_the_way, "notes\n").unwrap();
+    let said = refused("{dir}", &in_the_way);
+    assert!(said.contains("is a regular file, not a folder"), "{said}");
+    assert_eq!(std::fs::read(&in_the_way).unwrap(), b"notes\n");
+    std::fs::remove_file(&in_the_way).unwrap();
+
+    // A read-only program folder.
+    let mnt = base.join("mnt");
+    std::fs::create_dir(&mnt).unwrap();
+    let Some(tmpfs) = crate::harness::Tmpfs::mount(&mnt) else {
+        return;
+    };
+    let program = mnt.join("program");
+    crate::harness::copy_tree(&t.dir, &program);
+    tmpfs.make_read_only();
+    let program_s = program.to_string_lossy().into_owned();
+    let said = refused(&program_s, &program);
+    assert!(
+        said.contains("cannot be written") && said.contains("Read-only file system"),
+        "{said}"
+    );
+    // Named elsewhere, the ledger is made there and the run goes ahead.
+    let state = base.join("ledger").to_string_lossy().into_owned();
+    let o = t.run(&[
+        "run",
+        &program_s,
+        "--formats",
+        "html",
+        "--as-of",
+        AS_OF,
+        "--out",
+        &out_s,
+        "--state",
+        &state,
+    ]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(base.join("ledger/ledger.json").is_file());
+}
+
+/// `report.out` a full path (`/srv/x/reports`) and a first run with `--out /srv/x`: the
+/// program's new ledger, `/srv/x/reports.ledger`, would be made inside that output folder and
+/// replaced with it by the run. Refused before anything is written (exit 2), naming both.
+#[test]
+fn the_programs_new_ledger_is_never_made_inside_the_output_folder() {
+    let t = ProgramTest::fixture("report-small");
+    let srv = t.dir.parent().unwrap().join("srv/x");
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    let full = srv.join("reports");
+    std::fs::write(
+        &yaml,
+        text.replace(
+            "\n  out: reports\n",
+            &format!("\n  out: {}\n", full.display()),
+        ),
+    )
+    .unwrap();
+    let srv_s = srv.to_string_lossy().into_owned();
+    let args = ["run", "{dir}", "--as-of", AS_OF, "--formats", "html"];
+    let o = t.run(&[&args[..], &["--out", &srv_s]].concat());
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(
+        o.stderr.contains(&format!(
+            "its own ledger {} would be inside this output folder",
+            srv.join("reports.ledger").display()
+        )) && o.stderr.contains("--state"),
+        "{}",
+        o.stderr
+    );
+    assert!(!srv.exists(), "nothing made");
+    // Its own output folder is fine: the ledger is made beside it.
+    let o = t.run(&args);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(srv.join("reports.ledger/ledger.json").is_file());
+}
+
+/// Runs that write no group report (`--only`, a shard) make no ledger anywhere, whatever
+/// `--out` says; `merge` of the shards into a folder of another parent makes the program's own,
+/// as a whole run does, and a second merge is audited against it.
+#[test]
+fn only_shards_make_no_ledger_and_merge_makes_the_programs_own() {
+    let t = ProgramTest::fixture("report-small");
+    let base = t.dir.parent().unwrap().to_path_buf();
+    let programs = t.dir.join("reports.ledger");
+    let ledgers = || -> Vec<String> {
+        walkdir::WalkDir::new(&base)
+            .into_iter()
+            .filter_map(Result::ok)
+            .filter(|e| e.file_name().to_string_lossy().ends_with(".ledger"))
+            .map(|e| e.path().display().to_string())
+            .collect()
+    };
+    let at = |rel: &str| base.join(rel).to_string_lossy().into_owned();
+    let run = |extra: &[&str]| {
+        let args = ["run", "{dir}", "--as-of", AS_OF, "--formats", "html"];
+        t.run(&[&args[..], extra].concat())
+    };
+    let o = run(&["--out", &at("a/only"), "--only", "SG-003"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    for k in 1..=2 {
+        let o = run(&[
+            "--out",
+            &at(&format!("a/shard{k}")),
+            "--shard",
+            &format!("{k}/2"),
+        ]);
+        assert_eq!(o.code, 0, "{o:?}");
+    }
+    assert!(ledgers().is_empty(), "{:?}", ledgers());
+    let merge = |out: &str| {
+        t.run(&[
+            "merge",
+            "{dir}",
+            "--out",
+            &at(out),
+            &at("a/shard1"),
+            &at("a/shard2"),
+        ])
+    };
+    let m = merge("b/merged");
+    assert_eq!(m.code, 0, "{m:?}");
+    assert!(
+        m.stderr.contains("created as this program's own ledger"),
+        "{}",
+        m.stderr
+    );
+    assert_eq!(ledgers(), [programs.display().to_string()]);
+    let m = merge("c/merged");
+    assert_eq!(m.code, 0, "{m:?}");
+    assert!(!m.stderr.contains("created as"), "{}", m.stderr);
+    assert_eq!(ledgers(), [programs.display().to_string()]);
 }
 
 #[test]
@@ -983,8 +1257,9 @@ fn ledger_files_are_never_read_through_a_link() {
 /// `cd` into the output folder and `--out .` (a cron script that changes folder first): the
 /// default ledger, named after the output folder, was `./reports.ledger`, inside the output
 /// folder itself. The run recorded its release there, found the output folder changed at the
-/// swap (exit 6), and every later run refused the folder for the ledger it now held. The
-/// ledger goes beside the folder, as for any other name.
+/// swap (exit 6), and every later run refused the folder for the ledger it now held. A new
+/// ledger is now the program's own; a ledger the output folder already has (made by an
+/// earlier version, beside it) is found beside the folder, as for any other name.
 #[test]
 fn out_dot_puts_the_ledger_beside_the_output_folder_not_inside_it() {
     let t = ProgramTest::fixture("report-small");
@@ -1006,10 +1281,24 @@ fn out_dot_puts_the_ledger_beside_the_output_folder_not_inside_it() {
     assert_eq!(o.status.code(), Some(0), "{o:?}");
     assert!(out.join("manifest.json").is_file());
     assert!(!out.join("reports.ledger").exists());
-    assert!(base.join("monthly.ledger/ledger.json").is_file());
+    assert!(!out.join("monthly.ledger").exists());
+    let programs = t.dir.join("reports.ledger");
+    assert!(programs.join("ledger.json").is_file());
     // And the next month's run goes ahead the same way.
     let o = run();
     assert_eq!(o.status.code(), Some(0), "{o:?}");
+    // The output folder's own ledger, beside it (as an earlier version made it), is found
+    // under `--out .` and used; nothing is made inside the output folder.
+    std::fs::rename(&programs, base.join("monthly.ledger")).unwrap();
+    let o = run();
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    assert!(!programs.exists(), "{o:?}");
+    assert!(!out.join("reports.ledger").exists());
+    assert!(!out.join("monthly.ledger").exists());
+    let ledger: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(base.join("monthly.ledger/ledger.json")).unwrap())
+            .unwrap();
+    assert_eq!(ledger["releases"].as_array().unwrap().len(), 1);
 }
 
 /// `check` passed a program whose ledger folder `run` then refused (exit 6, after the user had
@@ -1126,12 +1415,14 @@ fn check_reports_a_ledger_folder_that_run_would_refuse() {
 
 #[test]
 fn check_with_out_judges_the_ledger_a_run_into_that_folder_uses() {
-    // A program without a ledger of its own, run into another folder: the run's ledger is the
-    // one beside that folder, which `check` (looking beside `report.out`) never saw.
+    // A program without a ledger of its own, run into another folder that has one (beside it):
+    // the run's ledger is that one, which `check` (looking beside `report.out`) never saw.
+    // (A folder there without a `ledger.json` is not a ledger: the run makes the program's own.)
     let t = ProgramTest::fixture("report-small");
     let elsewhere = t.dir.parent().unwrap().join("monthly");
     let ledger = t.dir.parent().unwrap().join("monthly.ledger");
     std::fs::create_dir(&ledger).unwrap();
+    std::fs::write(ledger.join("ledger.json"), "{\"format\":1,\"releases\":[]}").unwrap();
     std::fs::write(ledger.join("notes.txt"), "mine\n").unwrap();
     let out = elsewhere.to_string_lossy().into_owned();
     let check =
