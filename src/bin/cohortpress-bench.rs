@@ -519,6 +519,7 @@ fn bench_size(
             e2e_peaks.push((n, j, r.peak_rss_kb));
             // The outputs of 10,000 participants take about 2 GB: do not keep them.
             let _ = std::fs::remove_dir_all(&out);
+            let _ = std::fs::remove_dir_all(out.with_extension("ledger"));
         }
     }
     md
@@ -596,6 +597,11 @@ struct EndToEnd {
 /// Runs the binary on `program` into a fresh `out`, polling its peak resident set.
 fn end_to_end(binary: &Path, program: &Path, out: &Path, jobs: usize) -> EndToEnd {
     let _ = std::fs::remove_dir_all(out);
+    // A fresh ledger of its own for every run (`--state`), so each run is a first release
+    // whatever ran before: without it, every run would add a release to the program's own
+    // ledger (`reports.ledger` in the generated program) and be audited against the last.
+    let state = out.with_extension("ledger");
+    let _ = std::fs::remove_dir_all(&state);
     let log = out.with_extension("log");
     let log_file = std::fs::File::create(&log).unwrap_or_else(|e| die(&format!("{log:?}: {e}")));
     let t = Instant::now();
@@ -612,6 +618,8 @@ fn end_to_end(binary: &Path, program: &Path, out: &Path, jobs: usize) -> EndToEn
         ])
         .arg("--out")
         .arg(out)
+        .arg("--state")
+        .arg(&state)
         .stdin(Stdio::null())
         .stdout(Stdio::null())
         .stderr(log_file)
