@@ -826,9 +826,10 @@ pub fn datapackage(
         ),
         DpResource::new(
             "weekly",
-            "every module's weekly series in long form; weeks start on Monday, but a series \
-             whose span starts mid-week (the trend's weight_trend_weekly, from the first \
-             weigh-in) dates that first week by the span's first day (see week_start)",
+            "every module's weekly series in long form; weeks run Monday to Sunday and \
+             week_start is always the Monday, for every module, so one calendar week has one \
+             week_start (a week the participant's or the trend's span covers only in part is \
+             still dated by its Monday: see value)",
             vec![
                 id(),
                 DpField::required("module", "string", "module id"),
@@ -837,12 +838,12 @@ pub fn datapackage(
                 DpField::required(
                     "week_start",
                     "date",
-                    "the week's first day: its Monday, or its first day in the span reported",
+                    "the week's Monday, also for a first or last week only partly covered",
                 ),
                 DpField::new(
                     "value",
                     "number",
-                    "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv); a level (the trend's weight_trend_weekly) is its value on the week's last day in the series",
+                    "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv); a level (the trend's weight_trend_weekly, whose span runs from the first to the last weigh-in) is its value on the week's last day in that span: the Sunday, or the last weigh-in's day in the last week",
                 ),
                 DpField::new("lower95", "number", "lower end of its 95 % interval"),
                 DpField::new("upper95", "number", "upper end of its 95 % interval"),
