@@ -936,7 +936,10 @@ pub fn datapackage(
              only as the range the rest of the report implies. Counts are people; shares and \
              intervals are %. It holds no names or ids, and no count from 1 to min_cell_size − \
              1 (docs/METHODS.md §5). Retention is retained / started (still in the program); \
-             with_outcome_percent is the share of those started with a weight at the time point",
+             with_outcome_percent is the share of those started with a weight at the time point. \
+             adherence holds medians of the participants.csv columns of the same names: \
+             activity_minutes_per_week, weigh_ins_per_week and food_log_days_per_week over the \
+             period, attendance_to_date_percent since enrolment",
         ));
     }
     let package = DpPackage {
