@@ -140,7 +140,12 @@ pub fn participant(
                     module.clone(),
                     s.name.clone(),
                     s.unit.clone(),
-                    p.date.to_string(),
+                    // The week's Monday for every module, also for a first week a module
+                    // dates by its first day in the period (plugins/PROTOCOL.md): one calendar
+                    // week had two `week_start`s, and a join of two modules' rows on it lost
+                    // that week. One point per calendar week (`modules::external` checks an
+                    // external module's), so the key stays unique.
+                    cohortpress_metric_adherence::week_start(p.date).to_string(),
                     num(Some(p.value)),
                     num(p.lower),
                     num(p.upper),
