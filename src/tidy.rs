@@ -140,7 +140,12 @@ pub fn participant(
                     module.clone(),
                     s.name.clone(),
                     s.unit.clone(),
-                    p.date.to_string(),
+                    // The week's Monday for every module, also for a first week a module
+                    // dates by its first day in the period (plugins/PROTOCOL.md): one calendar
+                    // week had two `week_start`s, and a join of two modules' rows on it lost
+                    // that week. One point per calendar week (`modules::external` checks an
+                    // external module's), so the key stays unique.
+                    cohortpress_metric_adherence::week_start(p.date).to_string(),
                     num(Some(p.value)),
                     num(p.lower),
                     num(p.upper),
@@ -826,9 +831,10 @@ pub fn datapackage(
         ),
         DpResource::new(
             "weekly",
-            "every module's weekly series in long form; weeks start on Monday, but a series \
-             whose span starts mid-week (the trend's weight_trend_weekly, from the first \
-             weigh-in) dates that first week by the span's first day (see week_start)",
+            "every module's weekly series in long form; weeks run Monday to Sunday and \
+             week_start is always the Monday, for every module, so one calendar week has one \
+             week_start (a week the participant's or the trend's span covers only in part is \
+             still dated by its Monday: see value)",
             vec![
                 id(),
                 DpField::required("module", "string", "module id"),
@@ -837,12 +843,12 @@ pub fn datapackage(
                 DpField::required(
                     "week_start",
                     "date",
-                    "the week's first day: its Monday, or its first day in the span reported",
+                    "the week's Monday, also for a first or last week only partly covered",
                 ),
                 DpField::new(
                     "value",
                     "number",
-                    "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv); a level (the trend's weight_trend_weekly) is its value on the week's last day in the series",
+                    "the week's value over its days in the participant's span (enrolment to the period's end or the day they left): the first and last weeks can be partial, and a count then covers fewer than 7 days (for adherence, days_covered of its weekly table in tables.csv); a level (the trend's weight_trend_weekly, whose span runs from the first to the last weigh-in) is its value on the week's last day in that span: the Sunday, or the last weigh-in's day in the last week",
                 ),
                 DpField::new("lower95", "number", "lower end of its 95 % interval"),
                 DpField::new("upper95", "number", "upper end of its 95 % interval"),
@@ -936,8 +942,10 @@ pub fn datapackage(
              intervals are %. It holds no names or ids, and no count from 1 to min_cell_size − \
              1 (docs/METHODS.md §5). Retention is retained / started (still in the program); \
              with_outcome_percent is the share of those started with a weight at the time point. \
-             The adherence medians of activity minutes, weigh-in days and food-log days per \
-             week leave out anyone with fewer than 7 days in the period (no rate per week: \
+             adherence holds medians of the participants.csv columns of the same names: \
+             activity_minutes_per_week, weigh_ins_per_week and food_log_days_per_week over the \
+             period, attendance_to_date_percent since enrolment. The medians of the three rates \
+             per week leave out anyone with fewer than 7 days in the period (no rate per week: \
              participants.csv has these empty); their n counts those with a rate",
         ));
     }

@@ -479,7 +479,10 @@ pub struct Adherence {
     pub weigh_ins_per_week: AdherenceLine,
     /// Food-log days per week.
     pub food_log_days_per_week: AdherenceLine,
-    /// Session attendance, %.
+    /// Session attendance since enrolment, %: each participant's adherence
+    /// `attendance_to_date_percent`, and so named in `group.json` (as `attendance_percent` it
+    /// read as the period's figure, the column of that name in participants.csv).
+    #[serde(rename = "attendance_to_date_percent")]
     pub attendance_percent: AdherenceLine,
 }
 

@@ -1528,7 +1528,8 @@ pub(super) fn pattern_attack_releases(releases: &[(&[ParticipantSummary], &Value
             ("activity_minutes_per_week", r.activity_minutes_per_week),
             ("weigh_ins_per_week", r.weigh_ins_per_week),
             ("food_log_days_per_week", r.food_log_days_per_week),
-            ("attendance_percent", r.attendance_percent),
+            // group.json names it as the participants.csv column it summarises.
+            ("attendance_to_date_percent", r.attendance_percent),
         ] {
             m.insert(format!("adherence.{name}"), v.is_some());
         }

@@ -984,6 +984,22 @@ pub fn validate_output(out: &ModuleOutput) -> Result<(), String> {
                 s.name, s.step, w[0].date
             ));
         }
+        // ... and `weekly.csv` dates each week by its Monday, so a weekly series has one point
+        // per calendar week (Monday to Sunday), as the protocol says.
+        if s.step == "weekly"
+            && let Some(w) = s.points.windows(2).find(|w| {
+                cohortpress_metric_adherence::week_start(w[1].date)
+                    == cohortpress_metric_adherence::week_start(w[0].date)
+            })
+        {
+            return Err(format!(
+                "series `{}` (weekly) has two points in the week of Monday {}: {} and {}",
+                s.name,
+                cohortpress_metric_adherence::week_start(w[0].date),
+                w[0].date,
+                w[1].date
+            ));
+        }
     }
     for t in &out.tables {
         names(
@@ -1152,6 +1168,39 @@ mod tests {
         );
         assert!(validate_output(&out("daily")).is_err());
         assert_eq!(validate_output(&out("irregular")), Ok(()));
+    }
+
+    /// `metrics/weekly.csv` dates each week by its Monday: a weekly series with two points in
+    /// one calendar week (Wednesday 3 and Sunday 7 March 2027) would give it two rows of one key.
+    /// A first week dated by its first day in the period (Wednesday 3 March), then the next
+    /// Monday, is one point per week and is taken.
+    #[test]
+    fn a_weekly_series_holds_one_point_per_calendar_week() {
+        let day = |d| chrono::NaiveDate::from_ymd_opt(2027, 3, d).unwrap();
+        let out = |days: &[u32]| ModuleOutput {
+            series: vec![cohortpress_metric_api::Series {
+                name: "weekly_mean_steps".into(),
+                unit: "steps/d".into(),
+                step: "weekly".into(),
+                label: "Steps".into(),
+                points: days
+                    .iter()
+                    .map(|&d| cohortpress_metric_api::Point {
+                        date: day(d),
+                        value: 7000.0,
+                        lower: None,
+                        upper: None,
+                    })
+                    .collect(),
+            }],
+            ..Default::default()
+        };
+        assert_eq!(
+            validate_output(&out(&[3, 7])).unwrap_err(),
+            "series `weekly_mean_steps` (weekly) has two points in the week of Monday \
+             2027-03-01: 2027-03-03 and 2027-03-07"
+        );
+        assert_eq!(validate_output(&out(&[3, 8, 15])), Ok(()));
     }
 
     /// A result may hold 100,000 table cells and series points in all, and not one more.

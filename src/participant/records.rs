@@ -826,6 +826,8 @@ pub fn parse_weights(
     // rows declare a unit there: see after the rows.
     let mut conflicts: Vec<UnitConflict> = Vec::new();
     let mut declared_rows = 0usize;
+    // Whether the file's note already quotes its first weight in stones and pounds.
+    let mut stones_noted = false;
     let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
         const DROP: &str = "the row is dropped";
         // A spreadsheet's `Average` (or `Max`…) row with a date, marked in a column of its own:
@@ -915,9 +917,20 @@ pub fn parse_weights(
                 });
                 return None;
             }
+            (Some(WeightUnit::StLb), _) => {
+                // The file's own first such weight and what it was read as: the guide's
+                // `14 st 2 lb` = 198 lb was quoted for a file of `11 st 2 lb`.
+                if !std::mem::replace(&mut stones_noted, true) {
+                    c.table.recognised(format!(
+                        "stones and pounds (`{}` = {} lb, the file's first)",
+                        raw.trim(),
+                        plain_number(value)
+                    ));
+                }
+                WeightUnit::StLb
+            }
             (Some(cell), _) => {
                 c.table.recognised(match cell {
-                    WeightUnit::StLb => "stones and pounds (`14 st 2 lb` = 198 lb)",
                     WeightUnit::G => {
                         "weights in grams in the cells (`72500 g`), converted to kilograms"
                     }
@@ -1817,6 +1830,14 @@ impl SameValue for LabResult {
 /// A cell's value for a message's "found": the text as written, and what it was read as when
 /// that is not the same number (`20 h` is "`20 h` (read as 1200 minutes)"); never the number
 /// alone, which may be in no file (`99999999999999999` prints as `100000000000000000`).
+/// A number as a note quotes it: up to three decimals, without trailing zeros (`156`,
+/// `196.5`), so a sum such as 14 × 14 + 2.3 is not printed as `198.29999999999998`.
+fn plain_number(x: f64) -> String {
+    let s = format!("{x:.3}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.into() }
+}
+
 fn as_written(c: &Cells<'_>, col: &str, value: f64, unit: &str) -> String {
     let raw = c.text(col).unwrap_or_default().trim();
     if raw.is_empty() {
@@ -2048,6 +2069,8 @@ pub fn parse_activity(
     // The first duration whose unit in the cell disagrees with the header's.
     let mut conflicts: Vec<UnitConflict> = Vec::new();
     let mut declared_rows = 0usize;
+    // Whether the file's note already quotes its first h:mm:ss duration.
+    let mut clock_noted = false;
     // Durations with one colon (`45:00`, `1:30`) are minutes:seconds or hours:minutes. An app
     // writes every duration of its export one way; when one of them read as hours:minutes
     // would be longer than an activity can last (`45:00` as 45 hours), the file writes
@@ -2119,8 +2142,14 @@ pub fn parse_activity(
                 v * per_unit
             }
             WrittenDuration::Clock(m) => {
-                c.table
-                    .recognised("durations as h:mm:ss (`0:45:00` = 45 minutes)");
+                // The file's own first, as for stones and pounds.
+                if !std::mem::replace(&mut clock_noted, true) {
+                    c.table.recognised(format!(
+                        "durations as h:mm:ss (`{}` = {} minutes, the file's first)",
+                        raw.trim(),
+                        plain_number(m)
+                    ));
+                }
                 m
             }
             WrittenDuration::Units(m, unit) => {

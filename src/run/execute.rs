@@ -183,18 +183,28 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     });
     progress.finish();
     let mut records = Vec::with_capacity(results.len());
-    let mut reused = 0usize;
+    // Counted as the last line counts participants reported: a folder not reported (no usable
+    // profile, or enrolled after the period) was counted as one reused ("51 participants
+    // reused" in a run of 50 participants reported).
+    let (mut reused, mut recomputed, mut left_out) = (0usize, 0usize, 0usize);
     for r in results {
         let (rec, was_reused) = r?;
-        reused += usize::from(was_reused);
+        match (rec.summary.is_some(), was_reused) {
+            (false, _) => left_out += 1,
+            (true, true) => reused += 1,
+            (true, false) => recomputed += 1,
+        }
         records.push(rec);
     }
     let participants_s = phase.elapsed().as_secs_f64();
     if plan.incremental {
         tracing::info!(
-            "incremental: {} participants reused, {} recomputed",
-            reused,
-            records.len() - reused
+            "incremental: {reused} participants reused, {recomputed} recomputed{}",
+            match left_out {
+                0 => String::new(),
+                1 => ", not counting 1 folder not reported".to_string(),
+                n => format!(", not counting {n} folders not reported"),
+            }
         );
     }
 

@@ -913,29 +913,40 @@ fn the_descriptor_says_participants_json_flags_are_every_flag_with_its_severity(
     );
 }
 
-/// `weekly.csv`'s weeks start on Monday except the trend's `weight_trend_weekly`, whose first
-/// week is dated by the trend's first day when that is mid-week (the sample has such rows;
-/// adherence dates the same week by its Monday). The descriptor said "weeks start on Monday"
-/// for the whole file, and the guide that only the report's tables differ.
+/// `weekly.csv`'s `week_start` is the week's Monday for every module. The trend's
+/// `weight_trend_weekly` dated its first week by the first weigh-in's day (49 rows of the sample
+/// mid-week), while adherence dated the same week by its Monday, so joining the modules' weekly
+/// rows on participant and week_start lost that week.
 #[test]
-fn weekly_csv_weeks_start_on_monday_but_the_trends_first_week_and_the_descriptor_says_so() {
+fn weekly_csv_dates_every_modules_week_by_its_monday_so_the_modules_join() {
     use chrono::Datelike;
     let metrics = sample_metrics();
     let mut csv = csv::Reader::from_path(metrics.join("weekly.csv")).unwrap();
-    let mut not_monday = BTreeSet::new();
-    let mut rows = 0;
+    let mut not_monday = Vec::new();
+    let mut trend_weeks = BTreeSet::new();
+    let mut adherence_weeks = BTreeSet::new();
     for r in csv.records().map(Result::unwrap) {
         let day = chrono::NaiveDate::parse_from_str(&r[4], "%Y-%m-%d").unwrap();
         if day.weekday() != chrono::Weekday::Mon {
-            not_monday.insert(format!("{}.{}", &r[1], &r[2]));
-            rows += 1;
+            not_monday.push(format!("{} {}.{} {}", &r[0], &r[1], &r[2], &r[4]));
         }
+        let key = (r[0].to_string(), r[4].to_string());
+        match (&r[1], &r[2]) {
+            ("trend", "weight_trend_weekly") => trend_weeks.insert(key),
+            ("adherence", "weekly_weigh_ins") => adherence_weeks.insert(key),
+            _ => false,
+        };
     }
-    assert!(rows > 0);
-    assert_eq!(
-        not_monday,
-        BTreeSet::from(["trend.weight_trend_weekly".to_string()])
-    );
+    assert_eq!(not_monday, Vec::<String>::new());
+    // Every week of the trend (first to last weigh-in, inside the participant's span) joins a
+    // week of adherence (the participant's span).
+    assert!(trend_weeks.len() > 1000, "{}", trend_weeks.len());
+    let unjoined: Vec<_> = trend_weeks.difference(&adherence_weeks).collect();
+    assert!(unjoined.is_empty(), "{unjoined:?}");
+    // SG-001's first weigh-in is Wednesday 1 April 2026: that week is the week of Monday
+    // 30 March in both modules.
+    assert!(trend_weeks.contains(&("SG-001".to_string(), "2026-03-30".to_string())));
+    assert!(adherence_weeks.contains(&("SG-001".to_string(), "2026-03-30".to_string())));
     let package = read_json(&metrics.join("datapackage.json"));
     let weekly = package["resources"]
         .as_array()
@@ -945,8 +956,101 @@ fn weekly_csv_weeks_start_on_monday_but_the_trends_first_week_and_the_descriptor
         .unwrap();
     assert_eq!(
         weekly["description"],
-        "every module's weekly series in long form; weeks start on Monday, but a series whose \
-         span starts mid-week (the trend's weight_trend_weekly, from the first weigh-in) dates \
-         that first week by the span's first day (see week_start)"
+        "every module's weekly series in long form; weeks run Monday to Sunday and week_start \
+         is always the Monday, for every module, so one calendar week has one week_start (a \
+         week the participant's or the trend's span covers only in part is still dated by its \
+         Monday: see value)"
+    );
+    let field = |name: &str| {
+        weekly["schema"]["fields"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["name"] == name)
+            .unwrap()["description"]
+            .as_str()
+            .unwrap()
+            .to_string()
+    };
+    assert_eq!(
+        field("week_start"),
+        "the week's Monday, also for a first or last week only partly covered"
+    );
+    assert!(
+        field("value").contains("the Sunday, or the last weigh-in's day in the last week"),
+        "{}",
+        field("value")
+    );
+}
+
+/// group.json's adherence medians are over the participants.csv columns of the same names.
+/// Its `attendance_percent` was the median of attendance since enrolment, while
+/// participants.csv's `adherence.attendance_percent` is the period's (empty for everyone in the
+/// sample's September, which offered no session): a researcher recomputing the group's figure
+/// from the column of that name found 0 values where group.json said n = 50, median 70 %.
+#[test]
+fn group_json_adherence_medians_are_named_as_the_participants_columns_they_summarise() {
+    let metrics = sample_metrics();
+    let mut csv = csv::Reader::from_path(metrics.join("participants.csv")).unwrap();
+    let header = csv.headers().unwrap().clone();
+    let rows: Vec<csv::StringRecord> = csv.records().map(Result::unwrap).collect();
+    let group = read_json(&metrics.join("group.json"));
+    let adherence = group["program"]["stats"]["adherence"].as_object().unwrap();
+    let keys: BTreeSet<&str> = adherence.keys().map(String::as_str).collect();
+    assert_eq!(
+        keys,
+        BTreeSet::from([
+            "activity_minutes_per_week",
+            "weigh_ins_per_week",
+            "food_log_days_per_week",
+            "attendance_to_date_percent"
+        ])
+    );
+    let mut shown = 0;
+    for (key, line) in adherence {
+        let col = header
+            .iter()
+            .position(|h| h == format!("adherence.{key}"))
+            .unwrap_or_else(|| panic!("participants.csv has no column adherence.{key}"));
+        let mut values: Vec<f64> = rows
+            .iter()
+            .filter_map(|r| r[col].parse::<f64>().ok())
+            .collect();
+        values.sort_by(f64::total_cmp);
+        if let Some(n) = line["n"]["value"].as_u64() {
+            assert_eq!(values.len() as u64, n, "{key}");
+        }
+        if let Some(median) = line["median"]["value"].as_f64() {
+            let m = values.len();
+            let ours = if m % 2 == 1 {
+                values[m / 2]
+            } else {
+                (values[m / 2 - 1] + values[m / 2]) / 2.0
+            };
+            // Printed rounded: attendance to 5 %, the others to 10 min or 0.5 days at most.
+            assert!((ours - median).abs() <= 2.5, "{key}: {ours} vs {median}");
+            shown += 1;
+        }
+    }
+    // The sample shows attendance (n = 50, median 70 %); the other medians are withheld.
+    assert_eq!(adherence["attendance_to_date_percent"]["n"]["value"], 50);
+    assert!(shown >= 1);
+    let package = read_json(&metrics.join("datapackage.json"));
+    let description = package["resources"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["path"] == "group.json")
+        .unwrap()["description"]
+        .as_str()
+        .unwrap()
+        .to_string();
+    assert!(
+        description.ends_with(
+            "adherence holds medians of the participants.csv columns of the same names: \
+             activity_minutes_per_week, weigh_ins_per_week and food_log_days_per_week over the \
+             period, attendance_to_date_percent since enrolment"
+        ),
+        "{description}"
     );
 }

@@ -1272,3 +1272,40 @@ fn an_unusable_tmpdir_is_named_and_not_blamed_on_program_yaml() {
     let out = t.run_env(&MARCH, &[("TMPDIR", &*tmp.to_string_lossy())]);
     assert!(out.code <= 1, "{}", out.stderr);
 }
+
+/// The example module dates a first week that starts before the period by the period's first
+/// day (the protocol allows it): with a period from Wednesday 3 March 2027, weekly.csv had the
+/// week of Monday 1 March as `2027-03-03`, while the built-in modules date it `2027-03-01`, so
+/// a join on participant and week_start lost that week. weekly.csv dates it by its Monday.
+#[test]
+fn weekly_csv_dates_an_external_modules_first_week_by_its_monday() {
+    let t = fixture_with_example();
+    let out = t.run(&[
+        "run",
+        "{dir}",
+        "--from",
+        "2027-03-03",
+        "--to",
+        "2027-03-31",
+        "--as-of",
+        "2027-04-05",
+        "--formats",
+        "html",
+    ]);
+    assert!(out.code <= 1, "{}", out.stderr);
+    let mut csv = csv::Reader::from_path(t.dir.join("reports/metrics/weekly.csv")).unwrap();
+    let rows: Vec<(String, String)> = csv
+        .records()
+        .map(Result::unwrap)
+        .filter(|r| &r[0] == "XP-01" && &r[2] == "weekly_mean_steps")
+        .map(|r| (r[4].to_string(), r[5].to_string()))
+        .collect();
+    // 3 March alone (4800) in the first week; 8300 and 7900 in the week of 8 March.
+    assert_eq!(
+        rows,
+        [
+            ("2027-03-01".to_string(), "4800".to_string()),
+            ("2027-03-08".to_string(), "8100".to_string())
+        ]
+    );
+}

@@ -480,6 +480,52 @@ fn a_cron_style_run_that_stops_logs_json_lines_ending_with_its_exit_code() {
     assert!(r.stderr.starts_with("error: program.yaml:"), "{}", r.stderr);
 }
 
+/// A folder without a profile is not reported, and `--incremental` counted it as a participant
+/// reused: "4 participants reused, 0 recomputed" above "3 participants reported".
+#[test]
+fn an_incremental_run_counts_the_participants_the_last_line_reports() {
+    let t = ProgramTest::demo(3);
+    let dir = t.dir.join("participants/SG-900");
+    std::fs::create_dir(&dir).unwrap();
+    std::fs::write(
+        dir.join("weights.csv"),
+        "date,weight,unit\n2026-04-01,80.0,kg\n",
+    )
+    .unwrap();
+    let inc = out(&t, "inc");
+    let first = run(&t, &inc, &[]);
+    assert_eq!(first.code, 4, "{}", first.stderr);
+    let again = run(&t, &inc, &["--incremental"]);
+    assert_eq!(again.code, 4, "{}", again.stderr);
+    assert!(
+        again.stderr.contains(
+            "incremental: 3 participants reused, 0 recomputed, not counting 1 folder not reported"
+        ),
+        "{}",
+        again.stderr
+    );
+    assert!(
+        again.stderr.contains("done in ")
+            && again
+                .stderr
+                .contains(": 3 participants reported, 1 with errors"),
+        "{}",
+        again.stderr
+    );
+    // One participant's folder changes: it is the one recomputed.
+    let w = t.dir.join("participants/SG-002/weights.csv");
+    let text = std::fs::read_to_string(&w).unwrap();
+    std::fs::write(&w, text + "\n").unwrap();
+    let changed = run(&t, &inc, &["--incremental"]);
+    assert!(
+        changed.stderr.contains(
+            "incremental: 2 participants reused, 1 recomputed, not counting 1 folder not reported"
+        ),
+        "{}",
+        changed.stderr
+    );
+}
+
 #[test]
 fn an_incremental_run_recomputes_only_what_changed_and_equals_a_full_run() {
     let t = ProgramTest::demo(10);

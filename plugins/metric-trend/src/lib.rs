@@ -220,8 +220,8 @@ impl MetricModule for TrendModule {
                     "series",
                     "kg",
                     "Trend weight on each calendar week's last day in the trend's span (first to \
-                     last weigh-in of the period), with 95 % band; dated by the week's Monday, or \
-                     the span's first day in its first week",
+                     last weigh-in of the period), with 95 % band; dated by the week's Monday, \
+                     also when the span starts later in that week",
                 ),
                 OutputSpec::new(
                     names::PLATEAU_CONFIDENCE,
@@ -1321,28 +1321,22 @@ fn current_status(
 }
 
 /// One point per calendar week (Monday to Sunday) of a daily series: the value and band of the
-/// week's last day in the series, dated by the week's first day in it (its Monday, or the
-/// series' first day in its first week), as the tidy weekly file dates every module's weeks.
-/// A level read at the week's end, not a mean over the week: the daily trend's band at a day is
-/// exact, a mean of correlated daily bands is not.
+/// week's last day in the series, dated by the week's Monday, also when the series starts later
+/// in that week, as every module dates its weeks (adherence, energy), so the tidy weekly file
+/// joins on the same week. A level read at the week's end, not a mean over the week: the daily
+/// trend's band at a day is exact, a mean of correlated daily bands is not.
 fn week_ends(daily: &[Point]) -> Vec<Point> {
     let mut out: Vec<Point> = Vec::new();
-    let mut week: Option<NaiveDate> = None;
     for p in daily {
         let monday =
             p.date - chrono::Duration::days(i64::from(p.date.weekday().num_days_from_monday()));
-        if week == Some(monday) {
-            let first = out.last().map(|q| q.date).unwrap_or(p.date);
-            *out.last_mut().expect("a week in progress has a point") = Point {
-                date: first,
-                ..p.clone()
-            };
-        } else {
-            week = Some(monday);
-            out.push(Point {
-                date: monday.max(p.date),
-                ..p.clone()
-            });
+        let point = Point {
+            date: monday,
+            ..p.clone()
+        };
+        match out.last_mut() {
+            Some(last) if last.date == monday => *last = point,
+            _ => out.push(point),
         }
     }
     out
@@ -1421,7 +1415,7 @@ mod tests {
     use plateau::WindowVerdict;
 
     #[test]
-    fn week_ends_take_each_calendar_weeks_last_day_dated_by_its_first() {
+    fn week_ends_take_each_calendar_weeks_last_day_dated_by_its_monday() {
         // Wednesday 1 April 2026 to Tuesday 14 April: a partial first week (Wed–Sun), a whole
         // one, and a partial last one (Mon–Tue).
         let first = NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
@@ -1437,11 +1431,12 @@ mod tests {
         let day = |m: u32, d: u32| NaiveDate::from_ymd_opt(2026, m, d).unwrap();
         let got: Vec<(NaiveDate, f64, Option<f64>)> =
             weeks.iter().map(|p| (p.date, p.value, p.lower)).collect();
-        // Sunday 5 April is day 4, Sunday 12 April day 11, Tuesday 14 April day 13.
+        // Sunday 5 April is day 4, Sunday 12 April day 11, Tuesday 14 April day 13. The first
+        // week is dated by its Monday, 30 March, as adherence dates it, not by 1 April.
         assert_eq!(
             got,
             vec![
-                (day(4, 1), 80.0 - 0.1 * 4.0, Some(75.0)),
+                (day(3, 30), 80.0 - 0.1 * 4.0, Some(75.0)),
                 (day(4, 6), 80.0 - 0.1 * 11.0, Some(68.0)),
                 (day(4, 13), 80.0 - 0.1 * 13.0, Some(66.0)),
             ]

@@ -2003,7 +2003,7 @@ fn forms_recognised_in_the_cells_are_stated_once_per_file() {
         "{n}"
     );
     assert!(
-        n.contains("stones and pounds (`14 st 2 lb` = 198 lb)"),
+        n.contains("stones and pounds (`14 st 2 lb` = 198 lb, the file's first)"),
         "{n}"
     );
     assert!(n.contains("dates with the month's name"), "{n}");
@@ -2015,6 +2015,29 @@ fn forms_recognised_in_the_cells_are_stated_once_per_file() {
     assert!(n.contains("durations as h:mm:ss"), "{n}");
     assert!(n.contains("durations with their units"), "{n}");
     assert!(!n.contains("month's name"), "{n}");
+    // The note quotes the file's own first value and what it was read as, once, never the
+    // guide's example: `14 st 2 lb` = 198 lb was quoted for a file of `11 st 2 lb`.
+    let n = notes(
+        "Date,Weight\n2026-04-01,11 st 2 lb\n2026-04-02,11 st 0.5 lb\n2026-04-03,11st 2.3lb\n",
+        w,
+    );
+    assert_eq!(
+        n,
+        "stones and pounds (`11 st 2 lb` = 156 lb, the file's first)"
+    );
+    let n = notes("Date,Weight\n2026-04-01,10 st 2.3 lb\n", w);
+    assert_eq!(
+        n,
+        "stones and pounds (`10 st 2.3 lb` = 142.3 lb, the file's first)"
+    );
+    let n = notes(
+        "date,activity,minutes\n2026-04-01,Yoga,1:05:30\n2026-04-02,Yoga,0:45:00\n",
+        a,
+    );
+    assert_eq!(
+        n,
+        "durations as h:mm:ss (`1:05:30` = 65.5 minutes, the file's first)"
+    );
     // A month-first date with a one-digit month and a two-digit day (`5/13/2026`) has its
     // second slash at the fifth byte, like `2026/05/13`: it is no year-first date.
     let n = notes(
