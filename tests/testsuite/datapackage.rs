@@ -1046,10 +1046,10 @@ fn group_json_adherence_medians_are_named_as_the_participants_columns_they_summa
         .unwrap()
         .to_string();
     assert!(
-        description.ends_with(
+        description.contains(
             "adherence holds medians of the participants.csv columns of the same names: \
              activity_minutes_per_week, weigh_ins_per_week and food_log_days_per_week over the \
-             period, attendance_to_date_percent since enrolment"
+             period, attendance_to_date_percent since enrolment."
         ),
         "{description}"
     );
