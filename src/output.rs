@@ -1417,6 +1417,23 @@ mod tests {
     }
 
     /// An output of 60 top-level folders with one file each, and its manifest.
+    /// A complete output `out` of a program `program` with a participants folder, in `dir`.
+    fn target_in(dir: &Path) -> (OutputTarget, PathBuf) {
+        let program = dir.join("program");
+        fs::create_dir_all(program.join("participants")).unwrap();
+        let out = dir.join("out");
+        let target = OutputTarget {
+            dir: out.clone(),
+            program_root: program,
+            participants_dir: "participants",
+            program_id: "p".into(),
+            templates: None,
+            scope: OutputScope::Complete,
+            named_by: "--out",
+        };
+        (target, out)
+    }
+
     fn write_output(target: &OutputTarget) {
         let staging = Staging::begin(target, Access::Owner).unwrap();
         for i in 0..60 {
@@ -1447,18 +1464,7 @@ mod tests {
     #[test]
     fn a_commit_that_fails_names_the_output_folder_and_what_became_of_it() {
         let tmp = tempfile::tempdir().unwrap();
-        let program = tmp.path().join("program");
-        fs::create_dir_all(program.join("participants")).unwrap();
-        let out = tmp.path().join("out");
-        let target = OutputTarget {
-            dir: out.clone(),
-            program_root: program,
-            participants_dir: "participants",
-            program_id: "p".into(),
-            templates: None,
-            scope: OutputScope::Complete,
-            named_by: "--out",
-        };
+        let (target, out) = target_in(tmp.path());
         let shown = out.display().to_string();
         let fail_sync = || {
             let staging = Staging::begin(&target, Access::Owner).unwrap();
@@ -1514,18 +1520,7 @@ mod tests {
     #[test]
     fn a_removal_stopped_part_way_leaves_a_previous_output_that_is_still_ours() {
         let tmp = tempfile::tempdir().unwrap();
-        let program = tmp.path().join("program");
-        fs::create_dir_all(program.join("participants")).unwrap();
-        let out = tmp.path().join("out");
-        let target = OutputTarget {
-            dir: out.clone(),
-            program_root: program,
-            participants_dir: "participants",
-            program_id: "p".into(),
-            templates: None,
-            scope: OutputScope::Complete,
-            named_by: "--out",
-        };
+        let (target, out) = target_in(tmp.path());
         write_output(&target);
         let order: Vec<String> = fs::read_dir(&out)
             .unwrap()

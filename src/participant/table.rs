@@ -1797,36 +1797,30 @@ fn read_records(
             rows.1.get_or_insert((line, shorten(f, 40)));
             continue;
         }
-        if !fits && let Some(i) = split {
-            ctx.count_row();
-            row_diags.push(split_text_warning(
-                ctx,
-                &rec,
-                i,
-                line,
-                width,
-                written.get(i).map(String::as_str),
-                delimiter,
-            ));
-            continue;
-        }
-        // A delimiter with no space after it, inside a text or a number's thousands: where
-        // joining two fields is the one way the row reads, that delimiter is named.
-        let joined = (!fits && rec.len() == width + 1)
-            .then(|| {
-                let cols: Vec<Option<&'static str>> = (0..width)
-                    .map(|j| {
-                        table
-                            .columns
-                            .iter()
-                            .find(|&(_, &k)| k == j)
-                            .map(|(&c, _)| c)
+        // The field a delimiter inside a value split the row at: a text split with a space
+        // after the delimiter, else (no space after it, inside a text or a number's
+        // thousands) the one join of two fields that makes the row read.
+        let split_at = if fits {
+            None
+        } else {
+            split.or_else(|| {
+                (rec.len() == width + 1)
+                    .then(|| {
+                        let cols: Vec<Option<&'static str>> = (0..width)
+                            .map(|j| {
+                                table
+                                    .columns
+                                    .iter()
+                                    .find(|&(_, &k)| k == j)
+                                    .map(|(&c, _)| c)
+                            })
+                            .collect();
+                        split_by_reading(&rec, &cols, opts)
                     })
-                    .collect();
-                split_by_reading(&rec, &cols, opts)
+                    .flatten()
             })
-            .flatten();
-        if let Some(i) = joined {
+        };
+        if let Some(i) = split_at {
             ctx.count_row();
             row_diags.push(split_text_warning(
                 ctx,
