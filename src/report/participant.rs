@@ -224,8 +224,22 @@ pub fn build(
     // Someone who stopped the program: the day they left is marked, and the weigh-ins after
     // it (follow-up) are seen to be after it.
     let left_follow_up = left.filter(|_| p.follow_up_weigh_ins());
-    let (weight_chart, weight_view) =
-        weight_chart(&v, target_kg, units, plan, p.enrolled, left_follow_up);
+    // Someone who withdrew (consent) within or before the period has no records after that
+    // day, and the chart's axis stops there: its description ran to the period's end (sample
+    // program, September 2026, SG-018: "Weight chart for 1 Apr 2026 to 30 Sep 2026" above an
+    // axis that ends in late July).
+    let chart_to = left
+        .filter(|_| left_follow_up.is_none())
+        .unwrap_or(plan.period.to);
+    let (weight_chart, weight_view) = weight_chart(
+        &v,
+        target_kg,
+        units,
+        plan,
+        p.enrolled,
+        left_follow_up,
+        chart_to,
+    );
 
     // Someone who never logged activity read "Activity minutes per week 0 (target 150)" and
     // "Activity, beyond resting 0 kcal/day", as if they had done none (the module counts no log
@@ -962,6 +976,7 @@ fn weight_chart(
     plan: &Scope<'_>,
     enrolled: NaiveDate,
     left_follow_up: Option<NaiveDate>,
+    to: NaiveDate,
 ) -> (Chart, ChartView) {
     let conv = |kg: f64| fmt::weight_value(kg, units);
     let unit = fmt::weight_unit(units);
@@ -1091,7 +1106,7 @@ fn weight_chart(
     let mut alt = weight_chart_alt(
         plan.program.info.start,
         enrolled,
-        plan.period.to,
+        to,
         !spans.is_empty(),
         target_kg.is_some(),
         forecast_to,

@@ -429,6 +429,29 @@ fn participant_context_snapshot() {
     insta::assert_json_snapshot!("participant_context_sg007", ctx);
 }
 
+/// Sample program, September 2026: SG-018 withdrew on 27 Jul 2026 and SG-020 on 21 Jul; their
+/// weight charts stop there, while the description said "Weight chart for 1 Apr 2026 to
+/// 30 Sep 2026". Someone still in the program keeps the period's end.
+#[test]
+fn the_weight_chart_of_someone_who_withdrew_is_described_to_that_day() {
+    let alt = |id: &str| contexts().participants[id].weight_chart.alt.clone();
+    assert!(
+        alt("SG-018").starts_with("Weight chart for 1 Apr 2026 to 27 Jul 2026:"),
+        "{}",
+        alt("SG-018")
+    );
+    assert!(
+        alt("SG-020").starts_with("Weight chart for 8 Apr 2026 to 21 Jul 2026:"),
+        "{}",
+        alt("SG-020")
+    );
+    assert!(
+        alt("SG-001").starts_with("Weight chart for 1 Apr 2026 to 30 Sep 2026:"),
+        "{}",
+        alt("SG-001")
+    );
+}
+
 #[test]
 fn group_context_snapshot() {
     insta::assert_json_snapshot!("group_context", redact_tool(&contexts().group));
