@@ -452,6 +452,28 @@ fn the_weight_chart_of_someone_who_withdrew_is_described_to_that_day() {
     );
 }
 
+/// Sample program, September 2026: SG-050's weekly implied intake stops after the week of 7 Sep
+/// as her loss grows fastest (the module withholds it), and the table read "–" with nothing
+/// saying why. SG-001's last week, after her last weigh-in on 26 Sep, has no trend to read and
+/// needs no word.
+#[test]
+fn a_withheld_weekly_implied_intake_is_explained() {
+    let note = "A dash under implied intake, and a gap in its line,";
+    let alt = |id: &str| {
+        contexts().participants[id]
+            .energy
+            .as_ref()
+            .expect("energy section")
+            .chart
+            .alt
+            .clone()
+    };
+    assert!(alt("SG-050").contains(note), "{}", alt("SG-050"));
+    for id in ["SG-001", "SG-007", "SG-018"] {
+        assert!(!alt(id).contains(note), "{id}: {}", alt(id));
+    }
+}
+
 #[test]
 fn group_context_snapshot() {
     insta::assert_json_snapshot!("group_context", redact_tool(&contexts().group));
