@@ -779,6 +779,33 @@ fn bad_units_dates_and_times() {
     assert!(diags[3].message.contains("`date` is empty"));
 }
 
+/// The sample program's planted row without its unit (`SG-032/weights.csv` line 34,
+/// `2026-05-14,08:01,91.2,home-scale` under `date,time,weight,unit,source`) read only "unknown
+/// weight unit … found: `home-scale`", while `check` noted the row as "read with the missing
+/// values empty". The warning now says the row is a field short and what that does. A row of
+/// the header's width keeps the plain message.
+#[test]
+fn a_value_that_fails_on_a_short_row_says_the_row_is_short() {
+    let (w, diags) = weights(
+        "date,time,weight,unit,source\n2026-05-13,08:03,91.5,kg,home-scale\n2026-05-14,08:01,91.2,home-scale\n2026-05-15,08:02,91.0,xx,home-scale\n",
+    );
+    assert_eq!(w.len(), 1, "{diags:#?}");
+    let unit: Vec<_> = diags
+        .iter()
+        .filter(|d| d.message.starts_with("unknown weight unit"))
+        .collect();
+    assert_eq!(unit.len(), 2, "{diags:#?}");
+    assert_eq!(unit[0].line, Some(3));
+    assert_eq!(
+        unit[0].hint.as_deref(),
+        Some(
+            "this row has 4 fields where the header has 5: a value left out before `unit`, with its delimiter, moves every value after it one column to the left; keep the delimiter of an empty value"
+        )
+    );
+    assert_eq!(unit[1].line, Some(4));
+    assert_eq!(unit[1].hint, None);
+}
+
 /// British scales export decimal stones; a `st` unit dropped every row of such a file.
 #[test]
 fn stones_are_read_as_fourteen_pounds() {
