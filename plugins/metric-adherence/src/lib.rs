@@ -414,7 +414,7 @@ impl MetricModule for AdherenceModule {
                     names::DAYS_SINCE_LAST_RECORD,
                     "scalar",
                     "d",
-                    "days from the last record to the end of observation",
+                    "days from the last weigh-in, food log or activity entry to the end of observation: the period's end, or the day the participant left when that is earlier, records after it not counted (how long before leaving they stopped recording); unlike trend.days_since_last_weigh_in, which runs to the period's end and counts follow-up weigh-ins after leaving",
                 )
                 .counted(),
                 OutputSpec::new(

@@ -446,6 +446,39 @@ fn nothing_counts_after_withdrawal() {
     assert!(out.flags.iter().all(|f| f.code != "gap"));
 }
 
+/// For someone who left, participants.csv gave two "days since" figures a reader could not
+/// reconcile (sample program, September 2026, SG-018, left 27 July: 67 days since the last
+/// weigh-in, 1 since the last record, when a weigh-in is a record). They count to different
+/// days on purpose: this one to the end of observation, the day they left (how long before
+/// leaving they stopped recording, nothing after it counted), the trend's to the period's end.
+/// The descriptor (datapackage.json takes it from here) says so, and names the other column.
+#[test]
+fn days_since_the_last_record_run_to_the_day_they_left_and_say_so() {
+    let mut data = three_week_participant();
+    data.profile.withdrew = Some(d("2027-03-12"));
+    // Last record before leaving: the activity of 03-12 (the day they left): 0 days; the
+    // weigh-in of 03-16 and the rest after it are not counted.
+    let out = run(&ctx("2027-03-01", "2027-03-31"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(0.0));
+    data.profile.withdrew = Some(d("2027-03-14"));
+    let out = run(&ctx("2027-03-01", "2027-03-31"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(2.0));
+    let spec = AdherenceModule.spec();
+    let described = &spec
+        .outputs
+        .iter()
+        .find(|o| o.name == "days_since_last_record")
+        .unwrap()
+        .description;
+    for words in [
+        "the period's end, or the day the participant left when that is earlier",
+        "records after it not counted",
+        "trend.days_since_last_weigh_in, which runs to the period's end",
+    ] {
+        assert!(described.contains(words), "{described}");
+    }
+}
+
 #[test]
 fn gap_flag_at_fourteen_days() {
     // Two weeks without any record: common practice threshold for a check-in.
