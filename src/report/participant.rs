@@ -1592,6 +1592,14 @@ fn implied_gap_note(
     trend_span: Option<(NaiveDate, NaiveDate)>,
 ) -> Option<&'static str> {
     let (first, last) = trend_span?;
+    // No week with one at all is no withheld week: in pregnancy the module reads no intake
+    // from the trend (`not_modelled`), and the note blamed a fast fall or rise.
+    if weeks
+        .iter()
+        .all(|r| r.implied_intake_kcal_per_day.is_none())
+    {
+        return None;
+    }
     weeks
         .iter()
         .any(|r| {
@@ -2539,6 +2547,12 @@ mod activity_unread_tests {
         let before_last = Some((first, last_week - chrono::Duration::days(1)));
         assert_eq!(implied_gap_note(&e.weekly_energy, before_last), None);
         assert_eq!(implied_gap_note(&e.weekly_energy, None), None);
+        // No week with one (pregnancy: the module reads no intake from the trend): nothing
+        // is withheld for a fast fall or rise, and the note would say so wrongly.
+        for r in &mut e.weekly_energy {
+            r.implied_intake_kcal_per_day = None;
+        }
+        assert_eq!(implied_gap_note(&e.weekly_energy, span), None);
     }
 
     /// The summary showed "Total energy use per day 3,002" (by energy balance over the last
