@@ -1364,6 +1364,65 @@ fn activity_minutes_and_met_bounds() {
     );
 }
 
+/// `Datum` (German exports) named the date of weights.csv and intake.csv only: in the other
+/// files it was found by its cells, with the note "no column is named as the date", and when
+/// the file's other columns were not ours either, `check` listed `date` among the missing
+/// columns and its hint asked to map it. It names the date in every file now (docs/GUIDE.md
+/// lists it among the headers read).
+#[test]
+fn datum_names_the_date_in_every_file() {
+    let inferred = |d: &[Diagnostic]| {
+        d.iter()
+            .any(|x| x.message.contains("no column is named as the date"))
+    };
+    let (v, diags) = activity("Datum,activity,minutes\n2026-04-02,walking_3mph,30\n");
+    assert_eq!(v.len(), 1, "{diags:#?}");
+    assert!(!inferred(&diags), "{diags:#?}");
+    let mut diags = Vec::new();
+    let v = parse_sessions(
+        "Datum,session,attended\n2026-04-01,1,yes\n",
+        &CsvOptions::default(),
+        &ctx("sessions.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(v.len(), 1, "{diags:#?}");
+    assert!(!inferred(&diags), "{diags:#?}");
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "Datum,test,value,unit\n2026-04-01,hba1c,5.4,%\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(v.len(), 1, "{diags:#?}");
+    assert!(!inferred(&diags), "{diags:#?}");
+    // With none of the other columns ours, `date` is no longer among the missing ones.
+    let mut diags = Vec::new();
+    let v = parse_activity(
+        "Datum,Aktivit\u{e4}t,Dauer (min)\n2026-04-02,Laufen,30\n",
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(v.is_none());
+    let missing = diags
+        .iter()
+        .find(|d| d.message.contains("missing required column"))
+        .expect("refused");
+    assert!(
+        missing
+            .message
+            .starts_with("missing required columns `activity`, `minutes`;"),
+        "{}",
+        missing.message
+    );
+}
+
 #[test]
 fn sessions_attendance() {
     let mut diags = Vec::new();
