@@ -149,6 +149,9 @@ pub struct Row {
     pub line: u64,
     /// Index of its first field in [`Table::bounds`].
     first: usize,
+    /// Fields the row was written with, when fewer than the header's (the rest were read
+    /// empty: values left off at the end, or one left out in the middle).
+    short: Option<usize>,
 }
 
 /// A file's rows with its column positions.
@@ -1881,7 +1884,8 @@ fn read_records(
             }
             table.bounds.push((start, table.text.len()));
         }
-        table.rows.push(Row { line, first });
+        let short = (rec.len() < width).then_some(rec.len());
+        table.rows.push(Row { line, first, short });
         ctx.count_row();
     }
     // A row of one field too many, the last empty, with a text value split in two before a
@@ -3284,12 +3288,39 @@ pub struct Cells<'a> {
 }
 
 impl Cells<'_> {
-    /// A warning located at `col` of this row.
+    /// A warning located at `col` of this row. On a row of fewer fields than the header, its
+    /// hint says how a value left out before the column moves the rest: the sample's
+    /// `2026-05-14,08:01,91.2,home-scale` under `date,time,weight,unit,source` read only
+    /// "unknown weight unit … found: `home-scale`", beside a note that the row was "read with
+    /// the missing values empty". A caller's own hint replaces it.
     pub fn warn(&self, col: &str, message: impl Into<String>) -> Diagnostic {
-        self.ctx
+        let d = self
+            .ctx
             .warning(message)
             .at(self.row.line, self.table.column(col))
-            .field(col)
+            .field(col);
+        // Only where the value reads as the next column's: a value that is just wrong on a
+        // row that left off an optional value at its end (`lbx` before a missing `time`) keeps
+        // the plain message.
+        let shifted = || {
+            let i = *self.table.columns.get(col)?;
+            let v = self.table.field(self.row, i)?;
+            let next = self
+                .table
+                .columns
+                .iter()
+                .find(|&(_, &k)| k == i + 1)
+                .map(|(&c, _)| c);
+            (i + 1 < self.table.width && fits_column(next, v, self.opts)).then_some(())
+        };
+        match self.row.short.filter(|_| shifted().is_some()) {
+            Some(n) => d.hint(format!(
+                "this row has {} where the header has {}: a value left out before `{col}`, with its delimiter, moves every value after it one column to the left; keep the delimiter of an empty value",
+                fields(n),
+                self.table.width
+            )),
+            None => d,
+        }
     }
 
     /// Text of `col`, `None` when empty.

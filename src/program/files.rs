@@ -248,6 +248,8 @@ pub const ACTIVITY: FileSpec = FileSpec {
         ("duration_minutes", "minutes"),
         ("mets", "met"),
         ("step_count", "steps"),
+        // German-language exports, as for weights and intake.
+        ("datum", "date"),
     ],
     // Seconds too (`Duration (s)`, as workout exports write it): converted to minutes. A
     // clock pattern (`Duration (h:mm)`) says how the column's clock durations are written.
@@ -298,6 +300,7 @@ pub const SESSIONS: FileSpec = FileSpec {
         ("day", "date"),
         ("attendance", "attended"),
         ("present", "attended"),
+        ("datum", "date"),
     ],
     header_units: &[],
 };
@@ -313,6 +316,7 @@ pub const LABS: FileSpec = FileSpec {
         ("analyte", "test"),
         ("result", "value"),
         ("units", "unit"),
+        ("datum", "date"),
     ],
     header_units: &[("value", &[], None)],
 };

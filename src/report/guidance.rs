@@ -290,6 +290,8 @@ pub struct State {
     pub clinical_flags: Vec<String>,
     /// Current BMI.
     pub bmi: Option<f64>,
+    /// BMI at baseline: "now below 25" only for someone who was not below it then.
+    pub bmi_baseline: Option<f64>,
     /// Change from baseline, %.
     pub change_percent: Option<f64>,
     /// The person's target change, % (negative = loss).
@@ -523,6 +525,7 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
             .map(|f| f.code.clone())
             .collect(),
         bmi: outcomes.and_then(|o| o.bmi_current_kg_m2),
+        bmi_baseline: outcomes.and_then(|o| o.bmi_baseline_kg_m2),
         change_percent: outcomes.and_then(|o| o.change_percent),
         target_percent: data.profile.targets.weight_change_percent,
         status: v
@@ -1088,6 +1091,10 @@ fn maintain(
     let loss_still_offered =
         why == MaintainWhy::TargetReached && state.bmi.is_some() && !bmi_rules_out_loss(state, t);
     let clinician_decides = loss_still_offered && f.lab_in_diabetes_range;
+    // "Now below 25" read as if a loss had brought the BMI under the cut-off, to someone who
+    // joined at BMI 22.1 and lost 3.7 % (a program of five, April 2026): "now" only for
+    // someone whose starting BMI was not below it already.
+    let started_below = |cut: f64| state.bmi_baseline.is_some_and(|b| bmi_below(b, cut));
     g.paragraphs.push(match why {
         MaintainWhy::TargetReached if clinician_decides => format!(
             "You have reached your target of a {} % loss (you are at {} %). Whether losing more would help with your blood sugar is for your clinician to judge; until you have talked it over, the aim is to hold your weight.",
@@ -1112,7 +1119,7 @@ fn maintain(
         {
             format!(
                 "Your BMI is {}below {}. From the age of 70, losing weight at a BMI below {} is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing {}. The aim from here is to hold your weight.",
-                if lost { "now " } else { "" },
+                if lost && !started_below(t.loss_cut(true)) { "now " } else { "" },
                 cut_words(t.loss_cut(true)),
                 cut_words(t.loss_cut(true)),
                 if lost { "more" } else { "weight" }
@@ -1123,7 +1130,7 @@ fn maintain(
         // cut-off of 30 is "pre-obese" (WHO 2000, TRS 894), not normal weight.
         MaintainWhy::BmiBelowCutoff => format!(
             "Your BMI is {}below {}, {}, so this report does not suggest losing {}. The aim from here is to hold your weight.",
-            if lost { "now " } else { "" },
+            if lost && !started_below(t.loss_bmi_at_least) { "now " } else { "" },
             cut_words(t.loss_bmi_at_least),
             if state.bmi.is_some_and(|b| {
                 cohortpress_metric_outcomes::who_bmi_class(b)
@@ -1410,6 +1417,7 @@ mod tests {
             withdrawn: false,
             clinical_flags: vec![],
             bmi: Some(29.0),
+            bmi_baseline: Some(29.6),
             change_percent: Some(-2.0),
             target_percent: -5.0,
             status,
@@ -2181,6 +2189,31 @@ mod tests {
         assert!(all.contains("not to lose more"), "{all}");
     }
 
+    /// A program of five, April 2026: a woman who joined at BMI 22.1 and lost 3.7 % (BMI 21.2)
+    /// read "Your BMI is now below 25", as if a loss had brought her under the cut-off. "Now"
+    /// is for someone who started at 25 or more.
+    #[test]
+    fn now_below_the_cut_off_only_after_starting_above_it() {
+        let t = Thresholds::default();
+        let mut s = st(Losing);
+        s.bmi = Some(21.2);
+        s.bmi_baseline = Some(22.1);
+        s.change_percent = Some(-3.7);
+        assert_eq!(decide(&s, &t), Phase::Maintain(MaintainWhy::BmiBelowCutoff));
+        let first = |s: &State| compose(decide(s, &t), s, &t, &facts()).paragraphs[0].clone();
+        assert_eq!(
+            first(&s),
+            "Your BMI is below 25, in the range the WHO calls normal weight, so this report does not suggest losing more. The aim from here is to hold your weight."
+        );
+        // Started at BMI 25.4: the loss brought it under, "now".
+        s.bmi_baseline = Some(25.4);
+        assert!(
+            first(&s).starts_with("Your BMI is now below 25, in the range"),
+            "{}",
+            first(&s)
+        );
+    }
+
     #[test]
     fn from_70_a_bmi_under_30_is_held_not_reduced() {
         // A woman of 73 at BMI 27 on a plateau, 2 % down, target −5 %: the report offered ways
@@ -2190,6 +2223,7 @@ mod tests {
         let t = Thresholds::default();
         let mut s = st(Plateau);
         s.bmi = Some(27.0);
+        s.bmi_baseline = Some(27.55);
         s.older = true;
         assert_eq!(decide(&s, &t), Phase::Maintain(MaintainWhy::BmiBelowCutoff));
         assert!(bmi_rules_out_loss(&s, &t));
@@ -2198,7 +2232,15 @@ mod tests {
         assert!(g.options.is_empty());
         assert_eq!(
             g.paragraphs[0],
-            "Your BMI is now below 30. From the age of 70, losing weight at a BMI below 30 is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing more. The aim from here is to hold your weight."
+            "Your BMI is below 30. From the age of 70, losing weight at a BMI below 30 is not advised without a clinician, because it costs muscle and bone that are hard to regain, so this report does not suggest losing more. The aim from here is to hold your weight."
+        );
+        // Started at 30 or more: "now".
+        s.bmi_baseline = Some(30.2);
+        let g = compose(decide(&s, &t), &s, &t, &facts());
+        assert!(
+            g.paragraphs[0].starts_with("Your BMI is now below 30."),
+            "{}",
+            g.paragraphs[0]
         );
         // Under 70, or at BMI 30 or more: loss may still be the goal.
         s.older = false;

@@ -224,8 +224,22 @@ pub fn build(
     // Someone who stopped the program: the day they left is marked, and the weigh-ins after
     // it (follow-up) are seen to be after it.
     let left_follow_up = left.filter(|_| p.follow_up_weigh_ins());
-    let (weight_chart, weight_view) =
-        weight_chart(&v, target_kg, units, plan, p.enrolled, left_follow_up);
+    // Someone who withdrew (consent) within or before the period has no records after that
+    // day, and the chart's axis stops there: its description ran to the period's end (sample
+    // program, September 2026, SG-018: "Weight chart for 1 Apr 2026 to 30 Sep 2026" above an
+    // axis that ends in late July).
+    let chart_to = left
+        .filter(|_| left_follow_up.is_none())
+        .unwrap_or(plan.period.to);
+    let (weight_chart, weight_view) = weight_chart(
+        &v,
+        target_kg,
+        units,
+        plan,
+        p.enrolled,
+        left_follow_up,
+        chart_to,
+    );
 
     // Someone who never logged activity read "Activity minutes per week 0 (target 150)" and
     // "Activity, beyond resting 0 kcal/day", as if they had done none (the module counts no log
@@ -279,6 +293,13 @@ pub fn build(
                 left.filter(|w| *w < plan.period.from),
                 unread == ActivityUnread::NoLog,
             );
+            let trend_span = v.trend.as_ref().and_then(|t| {
+                let pts = &t.weight_trend.points;
+                Some((pts.first()?.date, pts.last()?.date))
+            });
+            if let Some(note) = implied_gap_note(&e.weekly_energy, trend_span) {
+                view.chart.alt.push_str(note);
+            }
             if p.sex.is_none() && left.is_none_or(|w| w >= plan.period.from) {
                 view.explanation.push_str(SEX_NOT_RECORDED_WORDS);
             }
@@ -962,6 +983,7 @@ fn weight_chart(
     plan: &Scope<'_>,
     enrolled: NaiveDate,
     left_follow_up: Option<NaiveDate>,
+    to: NaiveDate,
 ) -> (Chart, ChartView) {
     let conv = |kg: f64| fmt::weight_value(kg, units);
     let unit = fmt::weight_unit(units);
@@ -1111,7 +1133,7 @@ fn weight_chart(
     let mut alt = weight_chart_alt(
         plan.program.info.start,
         enrolled,
-        plan.period.to,
+        to,
         !spans.is_empty(),
         target_kg.is_some(),
         forecast_to,
@@ -1557,6 +1579,37 @@ fn energy_section(
         },
     };
     (view, chart)
+}
+
+/// Said under the weekly energy table when a week within the weight trend's span has no implied
+/// intake: the energy module withholds a week whose trend fell faster than a very-low-calorie
+/// diet or rose faster than food can supply (docs/METHODS.md §4). Sample program, September
+/// 2026, SG-050: the dashed line stopped at 1,004 kcal in the week of 7 Sep and the last three
+/// weeks read "–", unexplained, as her loss grew fastest. A week outside the trend's span (after
+/// the last weigh-in) has no trend to read, and needs no word.
+fn implied_gap_note(
+    weeks: &[cohortpress_metric_energy::view::WeekEnergyRow],
+    trend_span: Option<(NaiveDate, NaiveDate)>,
+) -> Option<&'static str> {
+    let (first, last) = trend_span?;
+    // No week with one at all is no withheld week: in pregnancy the module reads no intake
+    // from the trend (`not_modelled`), and the note blamed a fast fall or rise.
+    if weeks
+        .iter()
+        .all(|r| r.implied_intake_kcal_per_day.is_none())
+    {
+        return None;
+    }
+    weeks
+        .iter()
+        .any(|r| {
+            r.implied_intake_kcal_per_day.is_none()
+                && r.week_start <= last
+                && r.week_start + chrono::Duration::days(6) >= first
+        })
+        .then_some(
+            " A dash under implied intake, and a gap in its line, is a week whose weight change is not read as eating: the weight fell faster than even a very low intake explains, or rose faster than food can (fluid, a step in the weigh-ins, or a very low intake to review with a clinician).",
+        )
 }
 
 /// What could not be read of the activity log: `None` when everything was; otherwise how
@@ -2468,6 +2521,38 @@ mod activity_unread_tests {
             .compute(&fixture::context(&m.spec(), &[("trend", &trend)]), &data)
             .unwrap();
         EnergyResults::from_output(&out).unwrap()
+    }
+
+    /// Sample program, September 2026, SG-050: the weekly implied intake stopped after the
+    /// week of 7 Sep (1,004 kcal) as her loss grew fastest; the last three weeks read "–" in
+    /// the table and the line just ended, with nothing saying why.
+    #[test]
+    fn a_week_without_an_implied_intake_within_the_trend_is_explained() {
+        let mut e = fixture_energy();
+        let n = e.weekly_energy.len();
+        assert!(n >= 3, "{n} weeks");
+        assert!(
+            e.weekly_energy
+                .iter()
+                .all(|r| r.implied_intake_kcal_per_day.is_some())
+        );
+        let first = e.weekly_energy[0].week_start;
+        let last_week = e.weekly_energy[n - 1].week_start;
+        let span = Some((first, last_week + chrono::Duration::days(2)));
+        assert_eq!(implied_gap_note(&e.weekly_energy, span), None);
+        // The last week without one, inside the trend's span: said.
+        e.weekly_energy[n - 1].implied_intake_kcal_per_day = None;
+        assert!(implied_gap_note(&e.weekly_energy, span).is_some());
+        // A last week after the last weigh-in (no trend there), or no trend at all: nothing.
+        let before_last = Some((first, last_week - chrono::Duration::days(1)));
+        assert_eq!(implied_gap_note(&e.weekly_energy, before_last), None);
+        assert_eq!(implied_gap_note(&e.weekly_energy, None), None);
+        // No week with one (pregnancy: the module reads no intake from the trend): nothing
+        // is withheld for a fast fall or rise, and the note would say so wrongly.
+        for r in &mut e.weekly_energy {
+            r.implied_intake_kcal_per_day = None;
+        }
+        assert_eq!(implied_gap_note(&e.weekly_energy, span), None);
     }
 
     /// The summary showed "Total energy use per day 3,002" (by energy balance over the last

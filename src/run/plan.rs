@@ -475,6 +475,27 @@ pub fn resolve_period(
     };
     let from = raw.from.max(start);
     let to = raw.to.min(end);
+    let from_program_yaml = args.period.is_none() && (args.from.is_none() || args.to.is_none());
+    if from > to
+        && from_program_yaml
+        && program.def.report.period == DefaultPeriod::LastFullMonth
+        && raw.to < start
+    {
+        // A monthly cron line that starts before the program's first month has ended read
+        // "command line: the period 2025-12-01 to 2025-12-31 lies outside the program", about a
+        // command line that named no period: say where the period came from and when the
+        // first report can be made.
+        let first_month = start.with_day(1).expect("day 1 exists");
+        let next = first_month
+            .checked_add_months(chrono::Months::new(1))
+            .expect("date in range");
+        return Err(format!(
+            "no full month of the program has ended by the as-of date {as_of}: program.yaml's `report.period: last_full_month` gives {} to {}, before the program starts on {start}; the first month, {}, can be reported from {next} (or now with `--from {start} --to {as_of}`)",
+            raw.from,
+            raw.to,
+            first_month.format("%Y-%m"),
+        ));
+    }
     if from > to {
         return Err(format!(
             "the period {} to {} lies outside the program ({start} to {end})",

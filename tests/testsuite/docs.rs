@@ -33,6 +33,26 @@ fn section(doc: &str, heading: &str) -> String {
         .join("\n")
 }
 
+/// README.md's "Two commands" build and run through `cargo run`, and every later example calls
+/// `cohortpress` as a command, which a first-time user following the README did not have: how
+/// to install it was said only in docs/GUIDE.md's section on cron. The README says where the
+/// binary is, and how to install it, before its first bare `cohortpress` command.
+#[test]
+fn the_readme_says_how_to_get_the_cohortpress_command_before_using_it() {
+    let readme = read("README.md");
+    let install = readme
+        .find("cargo install --path . --locked")
+        .expect("README.md says how to install the binary");
+    let first_use = readme
+        .find("`cohortpress ")
+        .expect("README.md uses the command");
+    assert!(
+        install < first_use,
+        "README.md uses `cohortpress` (byte {first_use}) before saying how to install it (byte {install})"
+    );
+    assert!(readme[..first_use].contains("target/release/cohortpress"));
+}
+
 /// The guide listed none of the `trend` module's five settings, nor `energy`'s `walking_met`
 /// or `outcomes`' `fast_loss_span_days`: a program that wanted a longer plateau window had only
 /// `cohortpress modules` to learn the name from. Each setting is now a row of the guide's

@@ -705,6 +705,34 @@ fn a_programs_own_loss_cut_off_is_named_as_its_own_not_as_who_normal_weight() {
     );
 }
 
+/// An empty follow-up list (a program of five with no flag this period) said "No participant
+/// has a clinical flag this period." twice, the lead and again where the table would be, with
+/// "“New” means the flag was not raised for …" between them, about flags it did not list.
+#[test]
+fn an_empty_followup_list_says_so_once() {
+    let t = ProgramTest::fixture("report-small");
+    let yaml = t.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Program nurse\"\n"),
+    )
+    .unwrap();
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-07-10", "--formats", "html"]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let html = std::fs::read_to_string(t.dir.join("reports/followup/followup.html")).unwrap();
+    let csv = std::fs::read_to_string(t.dir.join("reports/followup/followup.csv")).unwrap();
+    assert_eq!(csv.lines().count(), 1, "the fixture raises no flag: {csv}");
+    assert_eq!(
+        html.matches("No participant has a clinical flag this period.")
+            .count(),
+        1,
+        "{html}"
+    );
+    assert!(!html.contains("means the flag was not raised"), "{html}");
+    assert!(!html.contains("so every flag is new"), "{html}");
+}
+
 /// The clinician follow-up list printed a BMI rounded across the WHO cut-off (attack17): a woman
 /// of 200 cm at 73.84 kg (BMI 18.46, underweight) was listed "BMI 18.5" in the Values column
 /// and `18.5` in followup.csv, beside her own flag "Current BMI is about 18.4 kg/m², below

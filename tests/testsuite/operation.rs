@@ -1494,3 +1494,50 @@ fn a_run_with_participant_warnings_says_whose_files_in_its_log() {
     let done = lines_logged.last().unwrap();
     assert_eq!(done["fields"]["warnings"], 1, "{done}");
 }
+
+/// A monthly cron line that first runs before the program's first month has ended (program from
+/// 1 April, run on 20 April) stopped with "command line: the period 2026-03-01 to 2026-03-31 lies
+/// outside the program", about a command line that named no period. It says now where the
+/// period came from and when the first month can be reported; still exit 2, nothing written.
+#[test]
+fn a_run_before_the_first_month_has_ended_says_when_it_can_report() {
+    let t = ProgramTest::fixture("report-small");
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-04-20"]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr.contains(
+            "no full month of the program has ended by the as-of date 2026-04-20: program.yaml's `report.period: last_full_month` gives 2026-03-01 to 2026-03-31, before the program starts on 2026-04-01; the first month, 2026-04, can be reported from 2026-05-01 (or now with `--from 2026-04-01 --to 2026-04-20`)"
+        ),
+        "{}",
+        r.stderr
+    );
+    assert!(!t.dir.join("reports").exists());
+    // The way out it names works.
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-04-20",
+        "--from",
+        "2026-04-01",
+        "--to",
+        "2026-04-20",
+    ]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    // A --period outside the program keeps its own words.
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-04-20",
+        "--period",
+        "2026-03",
+    ]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr
+            .contains("the period 2026-03-01 to 2026-03-31 lies outside the program"),
+        "{}",
+        r.stderr
+    );
+}

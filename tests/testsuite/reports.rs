@@ -429,6 +429,51 @@ fn participant_context_snapshot() {
     insta::assert_json_snapshot!("participant_context_sg007", ctx);
 }
 
+/// Sample program, September 2026: SG-018 withdrew on 27 Jul 2026 and SG-020 on 21 Jul; their
+/// weight charts stop there, while the description said "Weight chart for 1 Apr 2026 to
+/// 30 Sep 2026". Someone still in the program keeps the period's end.
+#[test]
+fn the_weight_chart_of_someone_who_withdrew_is_described_to_that_day() {
+    let alt = |id: &str| contexts().participants[id].weight_chart.alt.clone();
+    assert!(
+        alt("SG-018").starts_with("Weight chart for 1 Apr 2026 to 27 Jul 2026:"),
+        "{}",
+        alt("SG-018")
+    );
+    assert!(
+        alt("SG-020").starts_with("Weight chart for 8 Apr 2026 to 21 Jul 2026:"),
+        "{}",
+        alt("SG-020")
+    );
+    assert!(
+        alt("SG-001").starts_with("Weight chart for 1 Apr 2026 to 30 Sep 2026:"),
+        "{}",
+        alt("SG-001")
+    );
+}
+
+/// Sample program, September 2026: SG-050's weekly implied intake stops after the week of 7 Sep
+/// as her loss grows fastest (the module withholds it), and the table read "–" with nothing
+/// saying why. SG-001's last week, after her last weigh-in on 26 Sep, has no trend to read and
+/// needs no word.
+#[test]
+fn a_withheld_weekly_implied_intake_is_explained() {
+    let note = "A dash under implied intake, and a gap in its line,";
+    let alt = |id: &str| {
+        contexts().participants[id]
+            .energy
+            .as_ref()
+            .expect("energy section")
+            .chart
+            .alt
+            .clone()
+    };
+    assert!(alt("SG-050").contains(note), "{}", alt("SG-050"));
+    for id in ["SG-001", "SG-007", "SG-018"] {
+        assert!(!alt(id).contains(note), "{id}: {}", alt(id));
+    }
+}
+
 #[test]
 fn group_context_snapshot() {
     insta::assert_json_snapshot!("group_context", redact_tool(&contexts().group));
