@@ -1304,3 +1304,107 @@ fn reissues_after_removals_keep_the_headline_counts_as_bands() {
         }
     }
 }
+
+/// The program's week mean is its sites' means weighted by their n. Two sites, all 40 weighing
+/// in until week 8, then one person of Kiln Row's 22 stops: Kiln Row's n is printed as the
+/// band "11–21", Harbour Yard's as 18 (all of them), the program's as "11–39"; but with the
+/// three means printed (to 0.01), only one n of Kiln Row makes the program's mean the weighted
+/// mean of the sites' — 21, the one who stopped (found in a 40-person demo, and in the sample
+/// program's September, week 14, narrowed to 12 or 13 of 14). The attacker tries every n the
+/// bands leave and keeps those for which |Σ n_s (m_s − M)| ≤ 0.01 · Σ n_s; no shortfall of
+/// 1 … min − 1 may be left with fewer than three values.
+#[test]
+fn week_means_of_a_split_do_not_weigh_out_who_stopped() {
+    let min = 11;
+    let mut people = Vec::new();
+    for i in 0..40 {
+        let (site, weeks, slope) = if i < 22 {
+            ("Kiln Row", if i == 0 { 8 } else { 12 }, -0.5)
+        } else {
+            ("Harbour Yard", 12, -0.2)
+        };
+        let mut p = person(&format!("P{i:02}"), site, -3.0 - (i % 5) as f64, true, -2.0);
+        p.row.weekly_change_percent = (0..weeks)
+            .map(|w| (w, slope * f64::from(w) - 0.013 * i as f64))
+            .collect();
+        people.push(p);
+    }
+    let attack = |report: &Value| -> Vec<String> {
+        let week_of = |st: &Value, w: u64| -> Option<((u64, u64), f64)> {
+            let p = st["trajectory"]
+                .as_array()?
+                .iter()
+                .find(|p| p["week"].as_u64() == Some(w))?;
+            Some((read_count(&p["n"])?, p["mean_percent"]["value"].as_f64()?))
+        };
+        let sites = report["splits"][0]["sections"].as_array().unwrap();
+        let mut found = Vec::new();
+        for w in 0..12 {
+            let Some(((plo, phi), m0)) = week_of(&report["program"]["stats"], w) else {
+                continue;
+            };
+            let Some(s) = sites
+                .iter()
+                .map(|s| week_of(&s["stats"], w))
+                .collect::<Option<Vec<_>>>()
+            else {
+                continue;
+            };
+            let [((alo, ahi), ma), ((blo, bhi), mb)] = s[..] else {
+                panic!("two sites")
+            };
+            let mut fit: Vec<(u64, u64)> = Vec::new();
+            for a in alo..=ahi {
+                for b in blo..=bhi {
+                    let n = a + b;
+                    let off = a as f64 * (ma - m0) + b as f64 * (mb - m0);
+                    if (plo..=phi).contains(&n) && off.abs() <= 0.01 * n as f64 + 1e-9 {
+                        fit.push((a, b));
+                    }
+                }
+            }
+            for (k, site) in sites.iter().enumerate() {
+                let started = site["stats"]["enrolment"]["started"]["value"]
+                    .as_u64()
+                    .unwrap();
+                let values: std::collections::BTreeSet<u64> = fit
+                    .iter()
+                    .map(|&(a, b)| if k == 0 { a } else { b })
+                    .collect();
+                let shortfalls: Vec<u64> = values.iter().map(|n| started - n).collect();
+                if values.len() < 3 && shortfalls.iter().any(|s| (1..min).contains(s)) {
+                    found.push(format!(
+                        "{} week {}: n in {values:?} of {started} started",
+                        site["label"],
+                        w + 1
+                    ));
+                }
+            }
+        }
+        found
+    };
+    let release = publish_in_order(std::slice::from_ref(&people), min as u32);
+    let report = &release[0].report;
+    let found = attack(report);
+    assert!(found.is_empty(), "{found:#?}");
+    // The preconditions: both sites have a section, and the program's means and Kiln Row's
+    // still print from week 9 on (the withheld one is the smaller site's).
+    let sites = report["splits"][0]["sections"].as_array().unwrap();
+    assert_eq!(sites.len(), 2);
+    let kiln = sites.iter().find(|s| s["label"] == "Kiln Row").unwrap();
+    for st in [&report["program"]["stats"], &kiln["stats"]] {
+        assert!(st["trajectory"][9]["mean_percent"].get("value").is_some());
+    }
+    // The audit notes say which week means were withheld and why.
+    assert!(
+        report["audit"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|a| a["section"] == "Harbour Yard"
+                && a["figure"] == "mean change in week 9"
+                && a["rule"].as_str().unwrap().contains("stopped")),
+        "{:#}",
+        report["audit"]
+    );
+}

@@ -1148,7 +1148,16 @@ fn gradual_attrition_leaves_the_headline_figures_shown() {
             .iter()
             .filter(|w| w.mean_percent.value().is_some())
             .count();
-        assert_eq!(shown, 26, "{}: every week has ≥ 75 people", section.label);
+        // Every week has ≥ 75 people; a week in which only one or two sites' n are bands
+        // loses the smallest site's mean (with the other means it would give those n: see
+        // `audit_week_means`), said in an audit note.
+        let weighed_out = report
+            .audit
+            .iter()
+            .filter(|a| a.section == section.label && a.rule.contains("other sections' means"))
+            .count();
+        assert!(weighed_out <= 2, "{}: {weighed_out}", section.label);
+        assert_eq!(shown + weighed_out, 26, "{}", section.label);
         // Weeks 1 … 8 are everyone's: n exact; later weeks lose people: n a band.
         assert_eq!(st.trajectory[0].n, st.enrolment.started);
         assert!(matches!(st.trajectory[25].n, Shown::Range { .. }));
