@@ -1408,3 +1408,107 @@ fn week_means_of_a_split_do_not_weigh_out_who_stopped() {
         report["audit"]
     );
 }
+
+/// Two `group_by` keys cut each other into site-and-team groups that no section counts. Sites
+/// A, B, C, D and teams X, Y, Z in a chain — A's 12 all in X, X's other 12 in B, B's other 3
+/// in Y, Y's other 12 in C, C's other 12 in Z, Z's other 12 are D — printed every section's
+/// enrolled count exactly, and B's 3 people in team Y were B − (X − A) = 15 − (24 − 12): no two
+/// printed counts differ by them (X − A is 12), so the nested pairs and the relations
+/// program = Σ sections never saw the group. The attacker knows who is in which site and team
+/// (the cells of the chain, all others empty), takes every printed enrolled count or range as a
+/// bound on the sum of its cells, and narrows each cell by interval propagation; no cell of
+/// 1 … min − 1 people may be left with fewer than three values.
+#[test]
+fn crossed_splits_do_not_give_away_a_site_and_team_group() {
+    let min = 11;
+    let cells = [
+        ("A", "X", 12),
+        ("B", "X", 12),
+        ("B", "Y", 3),
+        ("C", "Y", 12),
+        ("C", "Z", 12),
+        ("D", "Z", 12),
+    ];
+    let mut people = Vec::new();
+    for &(site, team, n) in &cells {
+        for _ in 0..n {
+            let i = people.len();
+            let mut p = person(&format!("P{i:02}"), site, -2.0 - (i % 9) as f64, true, -1.0);
+            p.row.groups.insert("team".into(), team.into());
+            people.push(p);
+        }
+    }
+    let o = GroupOptions {
+        min_cell_size: min,
+        group_by: vec!["site".into(), "team".into()],
+        confidence: 0.95,
+    };
+    let attack = |report: &Value| -> Vec<String> {
+        // Per printed section: which cells it holds and what it prints of its enrolled count.
+        let mut bounds: Vec<(Vec<usize>, (u64, u64))> = Vec::new();
+        let all: Vec<usize> = (0..cells.len()).collect();
+        if let Some(b) = read_count(&report["program"]["stats"]["enrolment"]["enrolled"]) {
+            bounds.push((all, b));
+        }
+        for (k, split) in report["splits"].as_array().unwrap().iter().enumerate() {
+            for sec in split["sections"].as_array().unwrap() {
+                let Some(b) = read_count(&sec["stats"]["enrolment"]["enrolled"]) else {
+                    continue;
+                };
+                let label = sec["label"].as_str().unwrap();
+                let held: Vec<usize> = (0..cells.len())
+                    .filter(|&c| [cells[c].0, cells[c].1][k] == label)
+                    .collect();
+                bounds.push((held, b));
+            }
+        }
+        let mut cell: Vec<(u64, u64)> = vec![(0, 100); cells.len()];
+        for _ in 0..50 {
+            for (held, (lo, hi)) in &bounds {
+                let lo_sum: u64 = held.iter().map(|&c| cell[c].0).sum();
+                let hi_sum: u64 = held.iter().map(|&c| cell[c].1).sum();
+                for &c in held {
+                    let others = (lo_sum - cell[c].0, hi_sum - cell[c].1);
+                    cell[c] = (
+                        cell[c].0.max(lo.saturating_sub(others.1)),
+                        cell[c].1.min(hi.saturating_sub(others.0)),
+                    );
+                }
+            }
+        }
+        cells
+            .iter()
+            .zip(&cell)
+            .filter(|&(&(_, _, n), &(lo, hi))| (1..u64::from(min)).contains(&n) && hi < lo + 2)
+            .map(|(&(s, t, n), &(lo, hi))| format!("site {s}, team {t}: {n} people, {lo}–{hi}"))
+            .collect()
+    };
+    let rows = rows(&people);
+    let report = serde_json::to_value(summarize(&rows, &o)).unwrap();
+    // The sections exist (each has at least min people), so the attack's preconditions hold.
+    let labels: Vec<&str> = report["splits"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .flat_map(|s| s["sections"].as_array().unwrap())
+        .map(|s| s["label"].as_str().unwrap())
+        .collect();
+    assert_eq!(labels, ["A", "B", "C", "D", "X", "Y", "Z"]);
+    let found = attack(&report);
+    assert!(found.is_empty(), "{found:#?}");
+    // Without the protection the attack works (so it is a real attack).
+    let bare = serde_json::to_value(
+        build(
+            &rows,
+            &GroupOptions {
+                min_cell_size: 0,
+                ..o.clone()
+            },
+            true,
+            &History::default(),
+        )
+        .0,
+    )
+    .unwrap();
+    assert_eq!(attack(&bare), ["site B, team Y: 3 people, 3–3"]);
+}

@@ -1193,13 +1193,14 @@ pub(super) fn build(
                     }
                 }
             }
-            if changed || history.counts.is_empty() {
-                if changed {
-                    continue;
-                }
-                break;
+            if changed {
+                continue;
             }
-            // Every figure's family across releases (see `venn`).
+            // Every figure's family across releases (see `venn`), and within this one: the
+            // sections of two splits cut each other into site-and-team groups that no relation
+            // of the suppression names. Sites A, B, C, D and teams X, Y, Z in a chain (A all in
+            // X, X also in B, B also in Y, Y also in C …) printed every enrolled count, and B's
+            // people in team Y, 3 of them, were B − (X − A) = 15 − (24 − 12).
             let mut families: BTreeMap<String, Vec<venn::FamilySet>> = BTreeMap::new();
             let mut where_is: HashMap<CellId, (String, Kind)> = HashMap::new();
             for d in drafts_of() {
@@ -1244,7 +1245,7 @@ pub(super) fn build(
             }
             let caps = venn::Caps::default();
             for (name, family) in &families {
-                if family.iter().all(|s| s.current.is_some()) || gave_up.contains(name) {
+                if gave_up.contains(name) {
                     continue;
                 }
                 match venn::audit(family, min, &caps, &mut budget) {
@@ -1270,9 +1271,9 @@ pub(super) fn build(
                                     section,
                                     figure: k.label(),
                                     rule: format!(
-                                        "Shown only as a range, because combined with counts in \
-                                         earlier reports it would give the number of fewer than \
-                                         {min} people"
+                                        "Shown only as a range, because combined with other \
+                                         counts of this report or of earlier reports it would give \
+                                         the number of fewer than {min} people"
                                     ),
                                 });
                             } else if let Some(&c) =
@@ -1287,8 +1288,8 @@ pub(super) fn build(
                                     figure: k.label(),
                                     rule: format!(
                                         "Not shown, not even as a range, because combined with \
-                                         counts in earlier reports the range would give the \
-                                         number of fewer than {min} people"
+                                         other counts of this report or of earlier reports the \
+                                         range would give the number of fewer than {min} people"
                                     ),
                                 });
                             }
