@@ -15,8 +15,10 @@
 //! resolved before any of this is decided, and the lock is taken on the resolved path, so two
 //! names for one folder share one lock. A partial run (`--only`, `--shard`) never replaces a
 //! complete output. Every file and folder is fsync'd before the swap, and a staging folder left
-//! by a failed run is removed when the [`Staging`] value is dropped; one left by a killed run is
-//! removed by the next run into the same folder or into any other folder beside it.
+//! by a failed run is removed when the [`Staging`] value is dropped; a run interrupted by SIGINT
+//! or SIGTERM removes its own before it ends ([`abandon_staging`]); one left by a killed run
+//! (SIGKILL, a power cut) is removed by the next run into the same folder or into any other
+//! folder beside it.
 
 use serde::Serialize;
 use std::fs::{self, File};
@@ -201,6 +203,57 @@ pub struct Staging {
 /// Marks a staging folder as ours, so a leftover one is removed only if it is ours; removed
 /// right after the swap.
 const STAGING_MARKER: &str = ".cohortpress-staging";
+
+/// The staging folders of this process not yet swapped into place nor removed, each with the
+/// output folder it would replace, for [`abandon_staging`] to remove when the process is
+/// interrupted (SIGINT, SIGTERM). The lock is held while a staging folder, or a folder or file
+/// inside it, is created, across a commit's two renames, and while a failed run's staging
+/// folder is removed, so that an interrupt removes a staging folder whole, never one that is
+/// being swapped into place, and no worker thread makes a folder in it again afterwards.
+static LIVE_STAGING: Mutex<Vec<(PathBuf, PathBuf)>> = Mutex::new(Vec::new());
+
+fn live_staging() -> std::sync::MutexGuard<'static, Vec<(PathBuf, PathBuf)>> {
+    // A panic while holding the lock leaves the list itself consistent.
+    LIVE_STAGING.lock().unwrap_or_else(|e| e.into_inner())
+}
+
+/// What [`abandon_staging`] did with one staging folder.
+#[derive(Debug)]
+pub struct Abandoned {
+    /// The staging folder.
+    pub staging: PathBuf,
+    /// The output folder it would have replaced (left as it was).
+    pub output: PathBuf,
+    /// `Err` when it could not be removed (the next run into that folder, or beside it,
+    /// removes it).
+    pub removed: Result<(), String>,
+}
+
+/// For a process about to end on an interrupt (SIGINT, SIGTERM): removes the staging folders
+/// of the runs still writing (their output folders were never touched), and keeps the lock of
+/// the list for good, so that from then on no thread creates anything in staging or swaps it
+/// into place. Call it only just before the process ends: any later write into staging waits
+/// for ever.
+///
+/// Without it a run stopped by a scheduler left `.NAME.staging/` (part of the month's
+/// identified reports) beside the output folder until the next run into that folder or beside
+/// it, which with a folder per month could be weeks.
+pub fn abandon_staging() -> Vec<Abandoned> {
+    let mut live = live_staging();
+    let done = live
+        .drain(..)
+        .map(|(staging, output)| {
+            let removed = remove_ours(&staging, STAGING_MARKER).map_err(|e| e.to_string());
+            Abandoned {
+                staging,
+                output,
+                removed,
+            }
+        })
+        .collect();
+    std::mem::forget(live);
+    done
+}
 
 /// A file being written into staging; [`StagingFile::finish`] flushes it and records it for
 /// the manifest.
@@ -766,8 +819,13 @@ impl Staging {
             }
             remove_ours(&dir, STAGING_MARKER)?;
         }
-        create_dir(&dir, access)?;
-        new_file(&dir.join(STAGING_MARKER), access)?;
+        {
+            // Registered as it is made: an interrupt from here on removes it.
+            let mut live = live_staging();
+            create_dir(&dir, access)?;
+            new_file(&dir.join(STAGING_MARKER), access)?;
+            live.push((dir.clone(), out_dir.clone()));
+        }
         clear_interrupted_siblings(&parent, &name);
         Ok(Staging {
             access,
@@ -827,6 +885,9 @@ impl Staging {
             });
         }
         let path = self.dir.join(rel);
+        // Held while the file (and its folders) are made: an interrupt that removed the
+        // staging folder meanwhile would have it made again, without its marker.
+        let _live = live_staging();
         if let Some(p) = path.parent()
             && p != self.dir
         {
@@ -940,6 +1001,9 @@ impl Staging {
         sync_written(&self.dir, folders.iter().rev().map(PathBuf::as_path))
             .map_err(|e| self.at_commit(e))?;
         let mut was_empty = false;
+        // Held across the two renames: an interrupt waits for the new output to be in place
+        // (or for the previous one to be back), never leaving the output folder missing.
+        let mut live = live_staging();
         let moved_aside = fs::symlink_metadata(&self.final_dir).is_ok();
         if moved_aside {
             // Refused, the previous output is still in place under its name.
@@ -984,6 +1048,8 @@ impl Staging {
             });
         }
         self.committed = true;
+        live.retain(|(dir, _)| *dir != self.dir);
+        drop(live);
         // The marker goes last, so a staging folder is recognisable as ours until it is in place.
         let marker = self.final_dir.join(STAGING_MARKER);
         if let Err(e) = fs::remove_file(&marker)
@@ -1089,7 +1155,9 @@ impl Drop for Staging {
     /// folder is removed, and the previous output was never touched.
     fn drop(&mut self) {
         if !self.committed {
+            let mut live = live_staging();
             let _ = remove_ours(&self.dir, STAGING_MARKER);
+            live.retain(|(dir, _)| *dir != self.dir);
         }
     }
 }

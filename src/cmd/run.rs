@@ -232,6 +232,8 @@ pub fn modules_command(program: Option<&Path>) -> i32 {
 /// `cohortpress merge PROGRAM SHARD_DIR… [--out DIR]`.
 pub fn merge_command(args: &MergeArgs) -> i32 {
     let started = Instant::now();
+    #[cfg(unix)]
+    crate::modules::external::watch_interrupts();
     let opts = merge_options(args);
     match run::shard::merge_shards(&opts) {
         Ok((summary, shards, plan)) => {

@@ -463,11 +463,14 @@ fn live_groups() -> std::sync::MutexGuard<'static, std::collections::BTreeMap<u3
 }
 
 /// On the first call, starts a thread that waits for SIGINT or SIGTERM; when one arrives it
-/// says so in the log, kills the process groups of the modules running then, removes their
-/// working folders, and ends the process as the signal would have.
+/// kills the process groups of the modules running then, removes their working folders and the
+/// run's unfinished output (its staging folder, [`crate::output::abandon_staging`]), says so in
+/// the log, and ends the process as the signal would have (a shell reports 130 or 143): a
+/// code of our own would hide from the shell or scheduler that it was stopped, and a shell
+/// script goes on after a child that exits, where it stops after one killed by SIGINT.
 /// Modules lead groups of their own, so a Ctrl-C at the terminal or a scheduler stopping the job
-/// reaches only cohortpress; without this their processes would outlive the run. `run` calls it
-/// at its start, so an interrupted run always leaves a last line in the log (a scheduler's stop
+/// reaches only cohortpress; without this their processes would outlive the run. `run` and
+/// `merge` call it at their start, so an interrupted run always leaves a last line in the log (a scheduler's stop
 /// had left none).
 #[cfg(unix)]
 pub fn watch_interrupts() {
@@ -491,11 +494,6 @@ pub fn watch_interrupts() {
                 } else {
                     "SIGTERM"
                 };
-                tracing::error!(
-                    "interrupted by {name}: the run stops here; an output not yet put in place \
-                     leaves the previous one as it was, and the next run clears what this one \
-                     had started"
-                );
                 let groups = live_groups();
                 for (&pgid, dir) in groups.iter() {
                     if let Some(pid) = rustix::process::Pid::from_raw(pgid as i32) {
@@ -506,12 +504,52 @@ pub fn watch_interrupts() {
                 }
                 #[cfg(target_os = "linux")]
                 stop_adopted();
+                // The run's unfinished output goes too (the modules that were writing for it
+                // are stopped): the output folder itself was never touched before the swap.
+                let abandoned = crate::output::abandon_staging();
+                tracing::error!(
+                    "interrupted by {name}: the run stops here; {}",
+                    interrupted_words(&abandoned)
+                );
                 // Keep the lock: no new group is registered while the process ends.
                 let _ = signal_hook::low_level::emulate_default_handler(signal);
                 std::process::exit(128 + signal);
             }
         });
     });
+}
+
+/// What an interrupted run says it did with the output it was writing (see
+/// [`crate::output::abandon_staging`]).
+#[cfg(unix)]
+fn interrupted_words(abandoned: &[crate::output::Abandoned]) -> String {
+    if abandoned.is_empty() {
+        // Not begun yet, or already in place.
+        return "an output not yet put in place leaves the previous one as it was".into();
+    }
+    abandoned
+        .iter()
+        .map(|a| {
+            let kept = if a.output.exists() {
+                format!("{} was left as it was", a.output.display())
+            } else {
+                format!("nothing was written to {}", a.output.display())
+            };
+            match &a.removed {
+                Ok(()) => format!(
+                    "the unfinished output it was writing ({}) was removed, and {kept}",
+                    a.staging.display()
+                ),
+                Err(e) => format!(
+                    "the unfinished output it was writing ({}) could not be removed ({e}); the \
+                     next run into {} or beside it removes it, and {kept}",
+                    a.staging.display(),
+                    a.output.display()
+                ),
+            }
+        })
+        .collect::<Vec<_>>()
+        .join("; ")
 }
 
 /// Whether this process adopts orphaned descendants (see [`Containment`]).

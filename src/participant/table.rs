@@ -1758,16 +1758,16 @@ fn read_records(
             continue;
         }
         let width = names.len();
-        // A text value split by a delimiter inside it, into the one field too many.
-        let split = (rec.len() == width + 1)
-            .then(|| split_text_at(&rec, opts))
-            .flatten();
+        // A text value split by delimiters inside it, into the fields too many.
+        let split = split_text_at(&rec, rec.len().saturating_sub(width), opts);
         let fits = if rec.len() > width {
             // A delimiter at the end of each row (`2026-04-01,72,kg,`) gives empty extra fields.
             let empty = rec.iter().skip(width).all(|f| f.trim().is_empty());
             trailing_empty += usize::from(empty);
             match split {
-                Some(i) if empty && i <= last_read => split_suspects.push((rec.clone(), line, i)),
+                Some(i) if empty && i <= last_read && rec.len() == width + 1 => {
+                    split_suspects.push((rec.clone(), line, i))
+                }
                 _ if empty => other_trailing += 1,
                 _ => {}
             }
@@ -2387,22 +2387,29 @@ fn other_export_header(
     Some((as_written, named))
 }
 
-/// Where an unquoted delimiter inside a text value (`walk, brisk`, `Toast, buttered`) splits a
-/// row of one field too many: the 0-based index of the field the text starts in, when two
-/// neighbouring fields are both text (a letter, and neither a number nor a date) and the
-/// second starts with a space (`, brisk`, as people write a comma in text; `kg,clinic` is two
-/// values), the only such pair in the row.
-fn split_text_at(rec: &csv::StringRecord, opts: &CsvOptions) -> Option<usize> {
+/// Where unquoted delimiters inside a text value (`walk, brisk`, `Toast, buttered`, `walk,
+/// brisk, uphill`) split a row of `extra` fields too many: the 0-based index of the field the
+/// text starts in, when `extra + 1` neighbouring fields are all text (a letter, and neither a
+/// number nor a date) and each after the first starts with a space (`, brisk`, as people write
+/// a comma in text; `kg,clinic` is two values), the only such run in the row. Two commas in a
+/// label had no run of two fields to find, and the row got the generic "row has 6 fields but
+/// the header has 4" where one comma named the value and its field.
+fn split_text_at(rec: &csv::StringRecord, extra: usize, opts: &CsvOptions) -> Option<usize> {
     let text = |f: &str| {
         let t = f.trim();
         t.chars().any(char::is_alphabetic)
             && numeric_parts(t).is_none()
             && parse_when(t, opts).is_none()
     };
-    let pairs: Vec<usize> = (0..rec.len().saturating_sub(1))
-        .filter(|&i| text(&rec[i]) && rec[i + 1].starts_with(' ') && text(&rec[i + 1]))
+    if extra == 0 {
+        return None;
+    }
+    let runs: Vec<usize> = (0..rec.len().saturating_sub(extra))
+        .filter(|&i| {
+            text(&rec[i]) && (i + 1..=i + extra).all(|j| rec[j].starts_with(' ') && text(&rec[j]))
+        })
         .collect();
-    match pairs[..] {
+    match runs[..] {
         [i] => Some(i),
         _ => None,
     }
@@ -2514,8 +2521,8 @@ fn row_as_found(rec: &csv::StringRecord, delimiter: &str) -> String {
     )
 }
 
-/// The warning for a row of one field too many whose extra field is a text value split by an
-/// unquoted delimiter at field `i` (0-based): the line and the field where the delimiter is,
+/// The warning for a row of fields too many whose extra fields are a text value split by
+/// unquoted delimiters from field `i` (0-based): the line and the field where the value is,
 /// and how to write the value.
 fn split_text_warning(
     ctx: &FileCtx,
@@ -2527,13 +2534,35 @@ fn split_text_warning(
     delimiter: u8,
 ) -> Diagnostic {
     let d = char::from(delimiter);
-    let joined = format!("{}{d}{}", rec[i].trim(), rec[i + 1].trim_end());
+    let extra = rec.len().saturating_sub(width).max(1);
+    let mut joined = rec[i].trim().to_string();
+    for f in rec.iter().skip(i + 1).take(extra) {
+        joined.push(d);
+        joined.push_str(f.trim_end());
+    }
     let column = header.map_or_else(|| format!("field {}", i + 1), |h| format!("`{h}`"));
+    let (too_many, delimiters) = if extra == 1 {
+        (
+            "one field too many".to_string(),
+            format!(
+                "the `{d}` in {column} value `{joined}` (field {}) is read as a delimiter",
+                i + 1
+            ),
+        )
+    } else {
+        let n = number_word(extra);
+        (
+            format!("{n} fields too many"),
+            format!(
+                "the {n} `{d}` in {column} value `{joined}` (field {}) are read as delimiters",
+                i + 1
+            ),
+        )
+    };
     let mut w = ctx
         .warning(format!(
-            "row has one field too many ({} for the {width} columns of the header): the `{d}` in {column} value `{joined}` (field {}) is read as a delimiter; the row is dropped",
+            "row has {too_many} ({} for the {width} columns of the header): {delimiters}; the row is dropped",
             rec.len(),
-            i + 1
         ))
         .at(line, Some(i as u64 + 1))
         .expected(fields(width))
@@ -2545,6 +2574,17 @@ fn split_text_warning(
         w = w.field(h);
     }
     w
+}
+
+/// `two` … `nine`, then digits: how many delimiters a warning counts in one value.
+fn number_word(n: usize) -> String {
+    const WORDS: [&str; 8] = [
+        "two", "three", "four", "five", "six", "seven", "eight", "nine",
+    ];
+    match n {
+        2..=9 => WORDS[n - 2].to_string(),
+        _ => n.to_string(),
+    }
 }
 
 /// `1 field`, `4 fields` ("row has 1 fields" read as a slip of ours).

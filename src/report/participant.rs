@@ -984,6 +984,8 @@ fn weight_chart(
         .is_some_and(|t| !t.weight_trend.points.is_empty());
     // Whether the band is left out on some day (see `shown_trend_band`): the description says so.
     let mut band_left_out = false;
+    // Whether a row of the table is a week of fewer than 7 days: the description says so.
+    let mut partial_weeks = false;
     if let Some(t) = &v.trend {
         // Dots of one day that print alike (to 0.1 of the unit, the resolution a scale shows
         // and well under a dot's size at any chart height) are drawn once: a scale's raw log
@@ -1022,12 +1024,30 @@ fn weight_chart(
             });
         }
         // One row per Monday-to-Sunday week: the trend on the week's last day in the series,
-        // the Sunday or the last weigh-in's day, as `weight_trend_weekly` in weekly.csv.
+        // the Sunday or the last weigh-in's day, as `weight_trend_weekly` in weekly.csv. A week
+        // the series covers in part gives its days, as the habits table does: the last row of
+        // someone who left on a Saturday read "Week ending 1 Aug 2026" below weeks ending on
+        // Sundays, for a week of six days.
         let n = s.points.len();
+        let first_day = s.points.first().map(|p| p.date);
         for (i, p) in s.points.iter().enumerate() {
             if i + 1 == n || p.date.weekday() == chrono::Weekday::Sun {
+                let monday = p.date
+                    - chrono::Duration::days(i64::from(p.date.weekday().num_days_from_monday()));
+                let from = first_day.map_or(monday, |f| f.max(monday));
+                let days = (p.date - from).num_days() + 1;
+                let week = if (1..7).contains(&days) {
+                    partial_weeks = true;
+                    format!(
+                        "{} ({days} {})",
+                        fmt::date(p.date),
+                        if days == 1 { "day" } else { "days" }
+                    )
+                } else {
+                    fmt::date(p.date)
+                };
                 table.rows.push(vec![
-                    fmt::date(p.date),
+                    week,
                     fmt::fixed(conv(p.value), 1),
                     match (p.lower, p.upper) {
                         (Some(_), Some(_)) => match shown_trend_band(p.value, p.lower, p.upper) {
@@ -1144,6 +1164,13 @@ fn weight_chart(
         alt.push_str(
             " Where the weigh-ins are too few or too far apart to narrow the trend to within \
              5 % of your weight either way, the band is left out (a dash in the table).",
+        );
+    }
+    if partial_weeks {
+        alt.push_str(
+            " In the table, a week the trend covers only in part (the first, from your first \
+             weigh-in; the last, to your last weigh-in) gives its number of days beside the \
+             day it ends.",
         );
     }
     if let Some(t) = v.trend.as_ref() {

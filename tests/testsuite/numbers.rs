@@ -285,3 +285,58 @@ fn under_a_week_of_days_no_weekly_rate_reaches_the_tidy_metrics_or_the_group_med
     let n = &group["program"]["stats"]["adherence"]["weigh_ins_per_week"]["n"]["value"];
     assert_eq!(n.as_u64(), Some(rows.len() as u64), "{n}");
 }
+
+/// Someone who left on a Saturday (weighed every day from Wednesday 1 April to Saturday 1
+/// August 2026): the trend table's last row read "1 Aug 2026" under "Week ending", below weeks
+/// ending on Sundays, for a week of six days (Monday 27 July to Saturday 1 August), and its first
+/// "5 Apr 2026" for a week of five. A week the trend covers in part now gives its days, as the
+/// habits table does ("(3 days)"), and the chart's description says what they mean; whole weeks
+/// are unchanged.
+#[test]
+fn a_trend_week_cut_short_by_the_first_or_last_weigh_in_gives_its_days() {
+    let t = ProgramTest::fixture("report-small");
+    let start = chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+    let end = chrono::NaiveDate::from_ymd_opt(2026, 8, 1).unwrap();
+    let daily: Vec<(String, f64, &str)> = (0..=(end - start).num_days())
+        .map(|i| {
+            let d = start + chrono::Duration::days(i);
+            (d.to_string(), 90.0 - 0.02 * i as f64, "home")
+        })
+        .collect();
+    person(&t.dir, "WD-01", &daily);
+    let profile = t.dir.join("participants/WD-01/profile.yaml");
+    let mut text = std::fs::read_to_string(&profile).unwrap();
+    text.push_str("withdrew: 2026-08-01\n");
+    std::fs::write(&profile, text).unwrap();
+    let out = t.run(&[
+        "run",
+        "{dir}",
+        "--period",
+        "2026-08",
+        "--as-of",
+        "2026-09-01",
+        "--formats",
+        "html",
+    ]);
+    assert!(out.code <= 1, "{out:?}");
+    let html = page(&t, "participants/WD-01.html");
+    let weeks: Vec<String> = trend_rows(&html).into_iter().map(|r| r.0).collect();
+    assert_eq!(
+        weeks.first().map(String::as_str),
+        Some("5 Apr 2026 (5 days)")
+    );
+    assert_eq!(
+        weeks[weeks.len() - 2..],
+        ["26 Jul 2026".to_string(), "1 Aug 2026 (6 days)".to_string()]
+    );
+    assert!(
+        weeks[1..weeks.len() - 1].iter().all(|w| !w.contains('(')),
+        "{weeks:?}"
+    );
+    assert!(
+        html.contains(
+            "In the table, a week the trend covers only in part (the first, from your first weigh-in; the last, to your last weigh-in) gives its number of days beside the day it ends."
+        ),
+        "the chart's description"
+    );
+}

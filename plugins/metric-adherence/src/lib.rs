@@ -33,7 +33,9 @@
 //! scalars are empty): scaled to 7 days, two 30-minute walks read "210 minutes a week" and one
 //! weigh-in in two days "3.5 days a week", a rate no week has tested. [`period_counts`] gives
 //! the counts over those days instead. A week counts towards
-//! `weeks_meeting_activity_target_percent` when it overlaps the covered part of the period.
+//! `weeks_meeting_activity_target_percent` when it overlaps the covered part of the period and
+//! is whole (7 covered days); with no whole week the figure is empty (too little data), never
+//! a share of partial weeks judged against scaled targets.
 //! Streaks and gaps are computed over the whole program to date.
 
 #![warn(missing_docs)]
@@ -392,7 +394,7 @@ impl MetricModule for AdherenceModule {
                     names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,
                     "scalar",
                     "%",
-                    "weeks of the period meeting the activity target (empty when no activity was logged since enrolment)",
+                    "whole weeks (7 days followed) of the period meeting the activity target; a week the period's start or end, enrolment or leaving cut short is not judged (empty when no activity was logged since enrolment, or when no whole week of the period was followed: too little data)",
                 ),
                 OutputSpec::new(
                     names::LONGEST_WEIGH_IN_STREAK_DAYS,
@@ -412,7 +414,7 @@ impl MetricModule for AdherenceModule {
                     names::DAYS_SINCE_LAST_RECORD,
                     "scalar",
                     "d",
-                    "days from the last record to the end of observation",
+                    "days from the last weigh-in, food log or activity entry to the end of observation: the period's end, or the day the participant left when that is earlier, records after it not counted (how long before leaving they stopped recording); unlike trend.days_since_last_weigh_in, which runs to the period's end and counts follow-up weigh-ins after leaving",
                 )
                 .counted(),
                 OutputSpec::new(
@@ -640,9 +642,14 @@ fn push_period_scalars(
         "%",
         "Sessions attended since enrolment",
     );
+    // Whole weeks only (7 covered days): a week of a few days is judged against its target
+    // scaled to those days, a rate no week has tested (see MIN_DAYS_FOR_A_WEEKLY_RATE). Counted,
+    // someone followed for two days of the period (left on its 2nd, or joined two days before
+    // its end) with one 45-minute walk read "100 % of weeks meeting the activity target".
     let period_weeks: Vec<&Week> = weeks
         .iter()
         .filter(|w| covered > 0 && w.start <= pb && w.start + Duration::days(6) >= pa)
+        .filter(|w| w.covered >= MIN_DAYS_FOR_A_WEEKLY_RATE)
         .collect();
     output.push_scalar(
         names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,

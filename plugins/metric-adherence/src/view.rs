@@ -36,7 +36,7 @@ pub mod names {
     pub const SESSIONS_ATTENDED_TO_DATE: &str = "sessions_attended_to_date";
     /// Sessions attended / offered since enrolment (scalar, %).
     pub const ATTENDANCE_TO_DATE_PERCENT: &str = "attendance_to_date_percent";
-    /// Weeks of the period meeting the activity target (scalar, %).
+    /// Whole weeks (7 covered days) of the period meeting the activity target (scalar, %).
     pub const WEEKS_MEETING_ACTIVITY_TARGET_PERCENT: &str = "weeks_meeting_activity_target_percent";
     /// Longest run of days with a weigh-in (scalar, d).
     pub const LONGEST_WEIGH_IN_STREAK_DAYS: &str = "longest_weigh_in_streak_days";
@@ -160,7 +160,7 @@ pub struct AdherenceView {
     pub sessions_attended_to_date: Option<f64>,
     /// Attendance since enrolment, %.
     pub attendance_to_date_percent: Option<f64>,
-    /// Weeks of the period meeting the activity target, %.
+    /// Whole weeks (7 covered days) of the period meeting the activity target, %.
     pub weeks_meeting_activity_target_percent: Option<f64>,
     /// Longest run of days with a weigh-in.
     pub longest_weigh_in_streak_days: Option<f64>,

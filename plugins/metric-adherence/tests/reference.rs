@@ -361,10 +361,13 @@ fn period_scalars_streaks_and_gaps() {
     assert_eq!(out.scalar("sessions_offered"), Some(2.0));
     assert_eq!(out.scalar("sessions_attended"), Some(1.0));
     assert_eq!(out.scalar("attendance_percent"), Some(50.0));
-    assert!(close(
+    // Only the whole week of 03-08 (90 moderate-equivalent minutes: no) is judged; the weeks
+    // of 03-01 (5 days, 70 minutes) and 03-15 (3 days, 95 minutes, "yes" against its target
+    // scaled to 3 days) are partial. It read 1 in 3 (33 %) when they counted.
+    assert_eq!(
         out.scalar("weeks_meeting_activity_target_percent"),
-        100.0 / 3.0
-    ));
+        Some(0.0)
+    );
     // Weigh-in days 03-08 .. 03-11 are the longest run (4 days).
     assert_eq!(out.scalar("longest_weigh_in_streak_days"), Some(4.0));
     // Days with any record: every day 03-03..03-12, then 03-15..03-17, so the longest gap is
@@ -378,10 +381,39 @@ fn period_scalars_streaks_and_gaps() {
     assert!(close(out.scalar("weigh_ins_per_week"), 5.0 * 0.7));
     assert_eq!(out.scalar("sessions_offered"), Some(1.0));
     assert_eq!(out.scalar("attendance_percent"), Some(0.0));
-    // Weeks overlapping 03-08..03-17: the weeks of 03-08 (no) and 03-15 (yes).
+    // Weeks overlapping 03-08..03-17: the whole week of 03-08 (no); the 3 days of the week of
+    // 03-15 ("yes" against its scaled target) are not judged as a week.
     assert_eq!(
         out.scalar("weeks_meeting_activity_target_percent"),
-        Some(50.0)
+        Some(0.0)
+    );
+}
+
+/// Someone followed for two days of the period (here they left on its 2nd) with one 45-minute
+/// walk read "100 % of weeks meeting the activity target" in the tidy metrics: two days were
+/// judged as a week, against the target scaled to two days (43 minutes). With no whole week
+/// of the period there is too little data: the figure is empty, and the weekly table keeps its
+/// row with the 2 days covered. A whole week of the same period is judged as before.
+#[test]
+fn a_period_of_two_days_is_too_little_for_weeks_meeting_the_activity_target() {
+    let c = ctx("2027-03-01", "2027-03-31");
+    let mut data = empty("2027-02-01");
+    data.profile.withdrew = Some(NaiveDate::from_ymd_opt(2027, 3, 2).unwrap());
+    data.weights = vec![weigh("2027-03-01", 80.0), weigh("2027-03-02", 79.9)];
+    data.activity = vec![act("2027-02-20", 20.0, 3.5), act("2027-03-01", 45.0, 3.5)];
+    let out = run(&c, &data);
+    assert_eq!(out.scalar("weeks_meeting_activity_target_percent"), None);
+    let t = out.table("weekly").unwrap();
+    let last = t.rows.last().unwrap();
+    assert_eq!(cell_num(&last[col(&out, "days_covered")]), 2.0);
+    assert_eq!(cell_text(&last[col(&out, "met_activity_target")]), "yes");
+
+    // Followed to the 8th: the week of 03-01 is whole (45 minutes: not met), so 0 %.
+    data.profile.withdrew = Some(NaiveDate::from_ymd_opt(2027, 3, 8).unwrap());
+    let out = run(&c, &data);
+    assert_eq!(
+        out.scalar("weeks_meeting_activity_target_percent"),
+        Some(0.0)
     );
 }
 
@@ -412,6 +444,39 @@ fn nothing_counts_after_withdrawal() {
     // Long silence after withdrawal does not raise the gap flag.
     let out = run(&ctx("2027-03-01", "2027-04-30"), &data);
     assert!(out.flags.iter().all(|f| f.code != "gap"));
+}
+
+/// For someone who left, participants.csv gave two "days since" figures a reader could not
+/// reconcile (sample program, September 2026, SG-018, left 27 July: 67 days since the last
+/// weigh-in, 1 since the last record, when a weigh-in is a record). They count to different
+/// days on purpose: this one to the end of observation, the day they left (how long before
+/// leaving they stopped recording, nothing after it counted), the trend's to the period's end.
+/// The descriptor (datapackage.json takes it from here) says so, and names the other column.
+#[test]
+fn days_since_the_last_record_run_to_the_day_they_left_and_say_so() {
+    let mut data = three_week_participant();
+    data.profile.withdrew = Some(d("2027-03-12"));
+    // Last record before leaving: the activity of 03-12 (the day they left): 0 days; the
+    // weigh-in of 03-16 and the rest after it are not counted.
+    let out = run(&ctx("2027-03-01", "2027-03-31"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(0.0));
+    data.profile.withdrew = Some(d("2027-03-14"));
+    let out = run(&ctx("2027-03-01", "2027-03-31"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(2.0));
+    let spec = AdherenceModule.spec();
+    let described = &spec
+        .outputs
+        .iter()
+        .find(|o| o.name == "days_since_last_record")
+        .unwrap()
+        .description;
+    for words in [
+        "the period's end, or the day the participant left when that is earlier",
+        "records after it not counted",
+        "trend.days_since_last_weigh_in, which runs to the period's end",
+    ] {
+        assert!(described.contains(words), "{described}");
+    }
 }
 
 #[test]

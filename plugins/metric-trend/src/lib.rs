@@ -308,7 +308,7 @@ impl MetricModule for TrendModule {
                     names::DAYS_SINCE_LAST_WEIGH_IN,
                     "scalar",
                     "d",
-                    "Days from the last weigh-in to the period end",
+                    "Days from the last weigh-in to the period's end (how old the latest weight is), also for someone who left: their follow-up weigh-ins after leaving count, and the days run on past the day they left; unlike adherence.days_since_last_record, which stops at that day",
                 )
                 .counted(),
                 OutputSpec::new(

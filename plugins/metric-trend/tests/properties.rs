@@ -372,6 +372,33 @@ fn a_single_huge_outlier_barely_moves_the_trend() {
     );
 }
 
+/// For someone who left, `days_since_last_weigh_in` runs to the period's end, past the day
+/// they left (adherence's `days_since_last_record` stops there: sample program, September
+/// 2026, SG-018 read 67 and 1 with nothing to say why); the descriptor says so and names the
+/// other column.
+#[test]
+fn days_since_the_last_weigh_in_run_to_the_period_end_also_after_leaving_and_say_so() {
+    let mut data = participant(&[(0, 90.0), (5, 89.8), (10, 89.6)]);
+    data.profile.withdrew = Some(day(12));
+    let out = run_data(&data, 40);
+    assert_eq!(out.scalar("days_since_last_weigh_in"), Some(30.0));
+    let spec = TrendModule.spec();
+    let described = &spec
+        .outputs
+        .iter()
+        .find(|o| o.name == "days_since_last_weigh_in")
+        .unwrap()
+        .description;
+    for words in [
+        "to the period's end",
+        "follow-up weigh-ins after leaving count",
+        "the days run on past the day they left",
+        "adherence.days_since_last_record, which stops at that day",
+    ] {
+        assert!(described.contains(words), "{described}");
+    }
+}
+
 #[test]
 fn data_after_the_period_end_are_not_used() {
     let w = linear(4, 100, -0.5, 0.6, 0.8);

@@ -2889,6 +2889,71 @@ fn a_comma_inside_a_label_is_a_field_too_many_at_the_comma() {
     );
 }
 
+/// Two unquoted commas in a label (`2026-05-02,walk, brisk, uphill,30,` under
+/// `Date,Activity,Minutes,Notes`) gave the generic "row has 6 fields but the header has 4 …
+/// quote text containing the delimiter", where one comma named the value and its field. The
+/// same warning now names both: at the line and field of the value, with how to quote it. Two
+/// commas in an unread note after every column read cost nothing, as one does.
+#[test]
+fn two_commas_inside_a_label_are_named_as_one_does() {
+    let text = "Date,Activity,Minutes,Notes\n\
+                2026-05-01,Cycling,30,\n\
+                2026-05-02,walk, brisk, uphill,30,\n\
+                2026-05-03,Walking,45,after work, tired, happy\n";
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    let got: Vec<(NaiveDate, f64)> = a.iter().map(|x| (x.date, x.minutes)).collect();
+    assert_eq!(got, [(d(2026, 5, 1), 30.0), (d(2026, 5, 3), 45.0)]);
+    let w: Vec<&Diagnostic> = diags
+        .iter()
+        .filter(|x| x.severity == Severity::Warning)
+        .collect();
+    assert_eq!(w.len(), 1, "{diags:#?}");
+    assert_eq!(
+        w[0].message,
+        "row has two fields too many (6 for the 4 columns of the header): the two `,` in `Activity` value `walk, brisk, uphill` (field 2) are read as delimiters; the row is dropped"
+    );
+    assert_eq!((w[0].line, w[0].column), (Some(3), Some(2)));
+    assert_eq!(w[0].field.as_deref(), Some("Activity"));
+    assert_eq!(
+        w[0].hint.as_deref(),
+        Some("quote the value: `\"walk, brisk, uphill\"` (or write it without the `,`)")
+    );
+    // Quoted as the hint says, the row is read.
+    let mut diags = Vec::new();
+    let a = parse_activity(
+        &text.replace("walk, brisk, uphill", "\"walk, brisk, uphill\""),
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert_eq!(a.len(), 3, "{diags:#?}");
+    // Three commas and no notes column.
+    let mut diags = Vec::new();
+    parse_activity(
+        "Date,Activity,Minutes\n2026-05-01,Cycling,30\n2026-05-02,walk, brisk, uphill, windy,30\n",
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .expect("usable");
+    assert!(
+        diags.iter().any(|x| x.message
+            == "row has three fields too many (6 for the 3 columns of the header): the three `,` in `Activity` value `walk, brisk, uphill, windy` (field 2) are read as delimiters; the row is dropped"),
+        "{diags:#?}"
+    );
+}
+
 /// An unquoted comma inside a text value that leaves the row with exactly the header's number
 /// of fields (`2026-03-02,walk, brisk,30,` under `date,activity,minutes,met,notes`: the empty
 /// note absorbs the extra field) read shifted, with "not a number in `minutes`" at ` brisk`
