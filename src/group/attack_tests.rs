@@ -1304,3 +1304,211 @@ fn reissues_after_removals_keep_the_headline_counts_as_bands() {
         }
     }
 }
+
+/// The program's week mean is its sites' means weighted by their n. Two sites, all 40 weighing
+/// in until week 8, then one person of Kiln Row's 22 stops: Kiln Row's n is printed as the
+/// band "11–21", Harbour Yard's as 18 (all of them), the program's as "11–39"; but with the
+/// three means printed (to 0.01), only one n of Kiln Row makes the program's mean the weighted
+/// mean of the sites' — 21, the one who stopped (found in a 40-person demo, and in the sample
+/// program's September, week 14, narrowed to 12 or 13 of 14). The attacker tries every n the
+/// bands leave and keeps those for which |Σ n_s (m_s − M)| ≤ 0.01 · Σ n_s; no shortfall of
+/// 1 … min − 1 may be left with fewer than three values.
+#[test]
+fn week_means_of_a_split_do_not_weigh_out_who_stopped() {
+    let min = 11;
+    let mut people = Vec::new();
+    for i in 0..40 {
+        let (site, weeks, slope) = if i < 22 {
+            ("Kiln Row", if i == 0 { 8 } else { 12 }, -0.5)
+        } else {
+            ("Harbour Yard", 12, -0.2)
+        };
+        let mut p = person(&format!("P{i:02}"), site, -3.0 - (i % 5) as f64, true, -2.0);
+        p.row.weekly_change_percent = (0..weeks)
+            .map(|w| (w, slope * f64::from(w) - 0.013 * i as f64))
+            .collect();
+        people.push(p);
+    }
+    let attack = |report: &Value| -> Vec<String> {
+        let week_of = |st: &Value, w: u64| -> Option<((u64, u64), f64)> {
+            let p = st["trajectory"]
+                .as_array()?
+                .iter()
+                .find(|p| p["week"].as_u64() == Some(w))?;
+            Some((read_count(&p["n"])?, p["mean_percent"]["value"].as_f64()?))
+        };
+        let sites = report["splits"][0]["sections"].as_array().unwrap();
+        let mut found = Vec::new();
+        for w in 0..12 {
+            let Some(((plo, phi), m0)) = week_of(&report["program"]["stats"], w) else {
+                continue;
+            };
+            let Some(s) = sites
+                .iter()
+                .map(|s| week_of(&s["stats"], w))
+                .collect::<Option<Vec<_>>>()
+            else {
+                continue;
+            };
+            let [((alo, ahi), ma), ((blo, bhi), mb)] = s[..] else {
+                panic!("two sites")
+            };
+            let mut fit: Vec<(u64, u64)> = Vec::new();
+            for a in alo..=ahi {
+                for b in blo..=bhi {
+                    let n = a + b;
+                    let off = a as f64 * (ma - m0) + b as f64 * (mb - m0);
+                    if (plo..=phi).contains(&n) && off.abs() <= 0.01 * n as f64 + 1e-9 {
+                        fit.push((a, b));
+                    }
+                }
+            }
+            for (k, site) in sites.iter().enumerate() {
+                let started = site["stats"]["enrolment"]["started"]["value"]
+                    .as_u64()
+                    .unwrap();
+                let values: std::collections::BTreeSet<u64> = fit
+                    .iter()
+                    .map(|&(a, b)| if k == 0 { a } else { b })
+                    .collect();
+                let shortfalls: Vec<u64> = values.iter().map(|n| started - n).collect();
+                if values.len() < 3 && shortfalls.iter().any(|s| (1..min).contains(s)) {
+                    found.push(format!(
+                        "{} week {}: n in {values:?} of {started} started",
+                        site["label"],
+                        w + 1
+                    ));
+                }
+            }
+        }
+        found
+    };
+    let release = publish_in_order(std::slice::from_ref(&people), min as u32);
+    let report = &release[0].report;
+    let found = attack(report);
+    assert!(found.is_empty(), "{found:#?}");
+    // The preconditions: both sites have a section, and the program's means and Kiln Row's
+    // still print from week 9 on (the withheld one is the smaller site's).
+    let sites = report["splits"][0]["sections"].as_array().unwrap();
+    assert_eq!(sites.len(), 2);
+    let kiln = sites.iter().find(|s| s["label"] == "Kiln Row").unwrap();
+    for st in [&report["program"]["stats"], &kiln["stats"]] {
+        assert!(st["trajectory"][9]["mean_percent"].get("value").is_some());
+    }
+    // The audit notes say which week means were withheld and why.
+    assert!(
+        report["audit"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|a| a["section"] == "Harbour Yard"
+                && a["figure"] == "mean change in week 9"
+                && a["rule"].as_str().unwrap().contains("stopped")),
+        "{:#}",
+        report["audit"]
+    );
+}
+
+/// Two `group_by` keys cut each other into site-and-team groups that no section counts. Sites
+/// A, B, C, D and teams X, Y, Z in a chain — A's 12 all in X, X's other 12 in B, B's other 3
+/// in Y, Y's other 12 in C, C's other 12 in Z, Z's other 12 are D — printed every section's
+/// enrolled count exactly, and B's 3 people in team Y were B − (X − A) = 15 − (24 − 12): no two
+/// printed counts differ by them (X − A is 12), so the nested pairs and the relations
+/// program = Σ sections never saw the group. The attacker knows who is in which site and team
+/// (the cells of the chain, all others empty), takes every printed enrolled count or range as a
+/// bound on the sum of its cells, and narrows each cell by interval propagation; no cell of
+/// 1 … min − 1 people may be left with fewer than three values.
+#[test]
+fn crossed_splits_do_not_give_away_a_site_and_team_group() {
+    let min = 11;
+    let cells = [
+        ("A", "X", 12),
+        ("B", "X", 12),
+        ("B", "Y", 3),
+        ("C", "Y", 12),
+        ("C", "Z", 12),
+        ("D", "Z", 12),
+    ];
+    let mut people = Vec::new();
+    for &(site, team, n) in &cells {
+        for _ in 0..n {
+            let i = people.len();
+            let mut p = person(&format!("P{i:02}"), site, -2.0 - (i % 9) as f64, true, -1.0);
+            p.row.groups.insert("team".into(), team.into());
+            people.push(p);
+        }
+    }
+    let o = GroupOptions {
+        min_cell_size: min,
+        group_by: vec!["site".into(), "team".into()],
+        confidence: 0.95,
+    };
+    let attack = |report: &Value| -> Vec<String> {
+        // Per printed section: which cells it holds and what it prints of its enrolled count.
+        let mut bounds: Vec<(Vec<usize>, (u64, u64))> = Vec::new();
+        let all: Vec<usize> = (0..cells.len()).collect();
+        if let Some(b) = read_count(&report["program"]["stats"]["enrolment"]["enrolled"]) {
+            bounds.push((all, b));
+        }
+        for (k, split) in report["splits"].as_array().unwrap().iter().enumerate() {
+            for sec in split["sections"].as_array().unwrap() {
+                let Some(b) = read_count(&sec["stats"]["enrolment"]["enrolled"]) else {
+                    continue;
+                };
+                let label = sec["label"].as_str().unwrap();
+                let held: Vec<usize> = (0..cells.len())
+                    .filter(|&c| [cells[c].0, cells[c].1][k] == label)
+                    .collect();
+                bounds.push((held, b));
+            }
+        }
+        let mut cell: Vec<(u64, u64)> = vec![(0, 100); cells.len()];
+        for _ in 0..50 {
+            for (held, (lo, hi)) in &bounds {
+                let lo_sum: u64 = held.iter().map(|&c| cell[c].0).sum();
+                let hi_sum: u64 = held.iter().map(|&c| cell[c].1).sum();
+                for &c in held {
+                    let others = (lo_sum - cell[c].0, hi_sum - cell[c].1);
+                    cell[c] = (
+                        cell[c].0.max(lo.saturating_sub(others.1)),
+                        cell[c].1.min(hi.saturating_sub(others.0)),
+                    );
+                }
+            }
+        }
+        cells
+            .iter()
+            .zip(&cell)
+            .filter(|&(&(_, _, n), &(lo, hi))| (1..u64::from(min)).contains(&n) && hi < lo + 2)
+            .map(|(&(s, t, n), &(lo, hi))| format!("site {s}, team {t}: {n} people, {lo}–{hi}"))
+            .collect()
+    };
+    let rows = rows(&people);
+    let report = serde_json::to_value(summarize(&rows, &o)).unwrap();
+    // The sections exist (each has at least min people), so the attack's preconditions hold.
+    let labels: Vec<&str> = report["splits"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .flat_map(|s| s["sections"].as_array().unwrap())
+        .map(|s| s["label"].as_str().unwrap())
+        .collect();
+    assert_eq!(labels, ["A", "B", "C", "D", "X", "Y", "Z"]);
+    let found = attack(&report);
+    assert!(found.is_empty(), "{found:#?}");
+    // Without the protection the attack works (so it is a real attack).
+    let bare = serde_json::to_value(
+        build(
+            &rows,
+            &GroupOptions {
+                min_cell_size: 0,
+                ..o.clone()
+            },
+            true,
+            &History::default(),
+        )
+        .0,
+    )
+    .unwrap();
+    assert_eq!(attack(&bare), ["site B, team Y: 3 people, 3–3"]);
+}

@@ -95,6 +95,10 @@ pub struct CellTable {
     /// shown cells its hiding forces through relations whose other members are shown zeros
     /// (refreshed by [`CellTable::refresh_costs`]).
     cost: Vec<u8>,
+    /// Set while [`CellTable::ranges`] computes the printed ranges: every hidden cell is then
+    /// boxed as a reader knows it (0 or more, or its printed band), never by the primary
+    /// rule's 1 … min − 1, which only the primary cells have and so would tell which they are.
+    printing: bool,
     /// Cells taken as complements only when no other cell will do (empty: none), set by the
     /// search of [`CellTable::apply_with_ranges`] for a result that shows a headline count the
     /// greedy choices hid.
@@ -398,7 +402,8 @@ impl CellTable {
 
     /// Suppression plus the interval audit: [`CellTable::apply`], then the range every hidden
     /// cell can take given the shown cells, the relations and the published rule that a
-    /// primary-suppressed cell lies in 1 … min − 1 ([`CellTable::ranges`]). When a hidden
+    /// primary-suppressed cell lies in 1 … min − 1 (the printed ranges, [`CellTable::ranges`],
+    /// leave that rule out: it would tell which cells are primary). When a hidden
     /// non-zero cell is narrowed to fewer than three possible values, the "1 … min − 1" bound
     /// of the primary cells sharing a relation with it is no longer used (their ranges then
     /// follow from the other figures alone); if there is none, the cell gets one more
@@ -801,7 +806,7 @@ impl CellTable {
     fn box_of(&self, c: CellId, min_cell_size: u32) -> (f64, f64) {
         if let Some((lo, hi)) = self.cells[c].band {
             (lo as f64, hi as f64)
-        } else if self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
+        } else if !self.printing && self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
             (1.0, f64::from(min_cell_size) - 1.0)
         } else {
             (0.0, f64::INFINITY)
@@ -892,13 +897,26 @@ impl CellTable {
 
     /// For every hidden cell, the smallest and largest value (whole numbers, widened to the
     /// nearest integers outward) consistent with the shown cells, the relations, non-negative
-    /// counts and `1 ≤ x ≤ min − 1` for primary-suppressed cells (unless that bound was
-    /// dropped): two linear programs per hidden cell, solved with `microlp` 0.7 (simplex),
+    /// counts and the printed bands. Not the primary cells' `1 ≤ x ≤ min − 1`: a reader knows
+    /// the rule but not which hidden cells it hid, and ranges bounded by it told them. Beside
+    /// 13 shown, a small cell of 1 printed "1–10" and its complement of 12 "3–12"; a range
+    /// reaching past min − 1 is no primary's, so the 12 was a complement, at least min, and
+    /// the small cell 1 or 2. (The check that nothing is narrowed, [`CellTable::first_narrow`],
+    /// keeps the bound: its ranges are narrower, the safe side.) Two linear programs per
+    /// hidden cell, solved with `microlp` 0.7 (simplex),
     /// except where a point already seen reaches the variable's own bound (then that bound is
     /// the answer). `None` for shown cells, for never-printed differences
     /// ([`CellTable::add_difference`]) and for a hidden cell whose programs cannot be solved
     /// or which no relation bounds (no range is then printed).
     pub fn ranges(&mut self, min_cell_size: u32) -> Vec<Option<(u64, u64)>> {
+        self.printing = true;
+        let out = self.ranges_printed(min_cell_size);
+        self.printing = false;
+        out
+    }
+
+    /// [`CellTable::ranges`] with `printing` set.
+    fn ranges_printed(&mut self, min_cell_size: u32) -> Vec<Option<(u64, u64)>> {
         use microlp::OptimizationDirection::{Maximize, Minimize};
         let mut seen = std::mem::take(&mut self.seen);
         let mut out = vec![None; self.cells.len()];
@@ -1709,6 +1727,11 @@ mod tests {
     /// dropped), for comparison.
     fn plain_ranges(t: &CellTable, min: u32) -> Vec<Option<(u64, u64)>> {
         use microlp::OptimizationDirection::{Maximize, Minimize};
+        // As printed: without the primary cells' 1 … min − 1 (see `CellTable::ranges`).
+        let t = &CellTable {
+            printing: true,
+            ..t.clone()
+        };
         let mut out = vec![None; t.len()];
         for (comp, rels) in t.hidden_components() {
             for &c in &comp {
@@ -1804,5 +1827,76 @@ mod tests {
             }
         }
         assert!(compared > 100, "{compared} ranges compared");
+    }
+    /// What a reader who knows the published algorithm can tell of each hidden cell of a
+    /// one-relation table `total = Σ parts` (every cell of `priority`): every assignment of
+    /// the hidden cells that agrees with the shown ones and the relation is run through the
+    /// same suppression, and kept when it prints exactly what the true one printed (the same
+    /// cells hidden, the same ranges). Returns, per cell, the values it takes in the kept
+    /// assignments.
+    fn reader_values(parts: &[u64], min: u32) -> Vec<std::collections::BTreeSet<u64>> {
+        let total: u64 = parts.iter().sum();
+        let printed = |values: &[u64]| {
+            let (mut t, _, _) = row(values, values.iter().sum());
+            let ranges = t.apply_with_ranges(min);
+            let hidden: Vec<bool> = (0..t.len()).map(|c| t.is_suppressed(c)).collect();
+            (hidden, ranges)
+        };
+        let truth = printed(parts);
+        let hidden: Vec<usize> = (0..parts.len()).filter(|&c| truth.0[c]).collect();
+        assert!(
+            !truth.0[parts.len()],
+            "the total stays shown in these tables"
+        );
+        let free = total
+            - (0..parts.len())
+                .filter(|c| !hidden.contains(c))
+                .map(|c| parts[c])
+                .sum::<u64>();
+        let mut out = vec![std::collections::BTreeSet::new(); parts.len()];
+        // Every split of `free` over the hidden cells.
+        let mut split = vec![0u64; hidden.len()];
+        fn each(free: u64, k: usize, split: &mut Vec<u64>, f: &mut dyn FnMut(&[u64])) {
+            if k + 1 == split.len() {
+                split[k] = free;
+                f(split);
+                return;
+            }
+            for v in 0..=free {
+                split[k] = v;
+                each(free - v, k + 1, split, f);
+            }
+        }
+        each(free, 0, &mut split, &mut |s| {
+            let mut values = parts.to_vec();
+            for (&c, &v) in hidden.iter().zip(s) {
+                values[c] = v;
+            }
+            if printed(&values) == truth {
+                for (c, &v) in values.iter().enumerate() {
+                    out[c].insert(v);
+                }
+            }
+        });
+        out
+    }
+
+    #[test]
+    fn a_printed_range_does_not_tell_a_reader_which_hidden_cell_is_the_small_one() {
+        // 13 people: 1 in a small cell, 12 in the other. The complement (12) was printed as
+        // "3–12" beside "1–10" for the small one: a range reaching past 10 is no primary's, so
+        // the 12 is 11 or more, and the small cell is 1 or 2.
+        for parts in [[1, 12], [2, 11], [12, 1], [1, 11], [9, 12]] {
+            let seen = reader_values(&parts, 11);
+            for (c, &v) in parts.iter().enumerate() {
+                if (1..11).contains(&v) {
+                    assert!(
+                        seen[c].len() >= 3,
+                        "{parts:?}: cell {c} ({v}) narrowed to {:?}",
+                        seen[c]
+                    );
+                }
+            }
+        }
     }
 }

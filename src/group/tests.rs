@@ -100,7 +100,9 @@ fn retention_counts_a_withdrawal_in_the_month_and_the_outcome_share_is_apart() {
 
     // Few withdrawals (3 of 30, all weighed in recently): the old retention, 100 %, was exact;
     // now retention is hidden with the small count it rests on, and the range it is printed
-    // as stays below 100 % and holds the truth, 90 %.
+    // as holds the truth, 90 %. It reaches 100 %: a printed range does not use the rule that
+    // a count hidden for being small is at least 1, which would tell which hidden count is
+    // the small one (`CellTable::ranges`).
     let mut rows: Vec<ParticipantSummary> = (0..30)
         .map(|i| person("A", 80.0 + i as f64, Some(79.0 + i as f64)))
         .collect();
@@ -115,7 +117,7 @@ fn retention_counts_a_withdrawal_in_the_month_and_the_outcome_share_is_apart() {
     match e.retention_percent {
         Shown::Range { lo, hi } => {
             assert!(lo <= 90.0 && 90.0 <= hi, "{lo}–{hi}");
-            assert!(hi < 100.0, "{lo}–{hi}");
+            assert!(lo < 90.0 && hi == 100.0, "{lo}–{hi}");
         }
         Shown::Suppressed => {}
         other => panic!("retention of a month with 3 withdrawals printed as {other:?}"),
@@ -1146,7 +1148,16 @@ fn gradual_attrition_leaves_the_headline_figures_shown() {
             .iter()
             .filter(|w| w.mean_percent.value().is_some())
             .count();
-        assert_eq!(shown, 26, "{}: every week has ≥ 75 people", section.label);
+        // Every week has ≥ 75 people; a week in which only one or two sites' n are bands
+        // loses the smallest site's mean (with the other means it would give those n: see
+        // `audit_week_means`), said in an audit note.
+        let weighed_out = report
+            .audit
+            .iter()
+            .filter(|a| a.section == section.label && a.rule.contains("other sections' means"))
+            .count();
+        assert!(weighed_out <= 2, "{}: {weighed_out}", section.label);
+        assert_eq!(shown + weighed_out, 26, "{}", section.label);
         // Weeks 1 … 8 are everyone's: n exact; later weeks lose people: n a band.
         assert_eq!(st.trajectory[0].n, st.enrolment.started);
         assert!(matches!(st.trajectory[25].n, Shown::Range { .. }));
