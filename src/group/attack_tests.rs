@@ -1409,6 +1409,111 @@ fn week_means_of_a_split_do_not_weigh_out_who_stopped() {
     );
 }
 
+/// The same weighted-mean attack over two releases. Twelve people who enrol late at the
+/// smaller site (Harbour Yard, 18 → 30 started) make it the larger one by the second release,
+/// while the later weeks' figures stay the same (the newcomers have no data in them yet). The
+/// first release withholds Harbour Yard's means of weeks 9–12 beside Kiln Row's band "11–21"
+/// (one person stopped); were the second to print them and withhold Kiln Row's instead (the
+/// section with the fewest people started has changed), a sponsor who keeps both would read
+/// every mean of those weeks, and Σ n_s (m_s − M) = 0 would give Kiln Row's n, 21 of 22. The
+/// attacker takes each site's band from both releases (the true n is the same) and each mean
+/// from whichever release prints it.
+#[test]
+fn week_means_withheld_in_one_release_are_not_printed_in_the_next() {
+    let min = 11;
+    let mut first = Vec::new();
+    for i in 0..40 {
+        let (site, weeks, slope) = if i < 22 {
+            ("Kiln Row", if i == 0 { 8 } else { 12 }, -0.5)
+        } else {
+            ("Harbour Yard", 12, -0.2)
+        };
+        let mut p = person(&format!("P{i:02}"), site, -3.0 - (i % 5) as f64, true, -2.0);
+        p.row.weekly_change_percent = (0..weeks)
+            .map(|w| (w, slope * f64::from(w) - 0.013 * i as f64))
+            .collect();
+        first.push(p);
+    }
+    let mut second = first.clone();
+    for i in 40..52 {
+        let mut p = person(&format!("P{i:02}"), "Harbour Yard", -1.0, true, -1.0);
+        p.row.weekly_change_percent = (0..2).map(|w| (w, -0.3 * f64::from(w))).collect();
+        second.push(p);
+    }
+    let releases = publish_in_order(&[first, second], min as u32);
+    // Per week: the program's n and mean, and each site's n (bands intersected over the two
+    // releases: the true n is the same) and mean (from whichever release prints it; a mean
+    // printed in both is the same number).
+    let week_of = |st: &Value, w: u64| -> Option<((u64, u64), Option<f64>)> {
+        let p = st["trajectory"]
+            .as_array()?
+            .iter()
+            .find(|p| p["week"].as_u64() == Some(w))?;
+        Some((read_count(&p["n"])?, p["mean_percent"]["value"].as_f64()))
+    };
+    let site = |r: &Value, label: &str| -> Value {
+        r["splits"][0]["sections"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|s| s["label"] == label)
+            .unwrap_or_else(|| panic!("{label} has a section"))["stats"]
+            .clone()
+    };
+    let mut found = Vec::new();
+    let mut withheld_somewhere = 0;
+    for w in 8..12 {
+        let mut known: Vec<((u64, u64), Option<f64>)> = Vec::new();
+        for label in ["program", "Kiln Row", "Harbour Yard"] {
+            let mut band = (0, u64::MAX);
+            let mut mean = None;
+            for r in &releases {
+                let st = if label == "program" {
+                    r.report["program"]["stats"].clone()
+                } else {
+                    site(&r.report, label)
+                };
+                if let Some(((lo, hi), m)) = week_of(&st, w) {
+                    band = (band.0.max(lo), band.1.min(hi));
+                    mean = mean.or(m);
+                }
+            }
+            known.push((band, mean));
+        }
+        let [((plo, phi), Some(m0)), ((alo, ahi), ma), ((blo, bhi), mb)] = known[..] else {
+            continue;
+        };
+        let (Some(ma), Some(mb)) = (ma, mb) else {
+            withheld_somewhere += 1;
+            continue;
+        };
+        let mut kiln = std::collections::BTreeSet::new();
+        for a in alo..=ahi {
+            for b in blo..=bhi {
+                let n = a + b;
+                let off = a as f64 * (ma - m0) + b as f64 * (mb - m0);
+                if (plo..=phi).contains(&n) && off.abs() <= 0.01 * n as f64 + 1e-9 {
+                    kiln.insert(a);
+                }
+            }
+        }
+        if kiln.len() < 3 {
+            found.push(format!("week {}: Kiln Row n in {kiln:?} of 22", w + 1));
+        }
+    }
+    assert!(found.is_empty(), "{found:#?}");
+    assert_eq!(withheld_somewhere, 4);
+    // The precondition: the first release prints Kiln Row's means and band and withholds
+    // Harbour Yard's means for weeks 9–12, the half of the attack a sponsor already holds.
+    let first = &releases[0].report;
+    for w in 8..12 {
+        let (kiln_n, kiln_mean) = week_of(&site(first, "Kiln Row"), w).unwrap();
+        assert_eq!(kiln_n, (11, 21));
+        assert!(kiln_mean.is_some());
+        assert_eq!(week_of(&site(first, "Harbour Yard"), w).unwrap().1, None);
+    }
+}
+
 /// Two `group_by` keys cut each other into site-and-team groups that no section counts. Sites
 /// A, B, C, D and teams X, Y, Z in a chain — A's 12 all in X, X's other 12 in B, B's other 3
 /// in Y, Y's other 12 in C, C's other 12 in Z, Z's other 12 are D — printed every section's
