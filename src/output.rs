@@ -210,9 +210,11 @@ const STAGING_MARKER: &str = ".cohortpress-staging";
 /// inside it, is created, across a commit's two renames, and while a failed run's staging
 /// folder is removed, so that an interrupt removes a staging folder whole, never one that is
 /// being swapped into place, and no worker thread makes a folder in it again afterwards.
-static LIVE_STAGING: Mutex<Vec<(PathBuf, PathBuf)>> = Mutex::new(Vec::new());
+/// Each entry is (staging folder, output folder, marker file that makes the staging folder
+/// ours): a run's ([`STAGING_MARKER`]) or an import's ([`ImportStaging`]).
+static LIVE_STAGING: Mutex<Vec<(PathBuf, PathBuf, &'static str)>> = Mutex::new(Vec::new());
 
-fn live_staging() -> std::sync::MutexGuard<'static, Vec<(PathBuf, PathBuf)>> {
+fn live_staging() -> std::sync::MutexGuard<'static, Vec<(PathBuf, PathBuf, &'static str)>> {
     // A panic while holding the lock leaves the list itself consistent.
     LIVE_STAGING.lock().unwrap_or_else(|e| e.into_inner())
 }
@@ -242,8 +244,8 @@ pub fn abandon_staging() -> Vec<Abandoned> {
     let mut live = live_staging();
     let done = live
         .drain(..)
-        .map(|(staging, output)| {
-            let removed = remove_ours(&staging, STAGING_MARKER).map_err(|e| e.to_string());
+        .map(|(staging, output, marker)| {
+            let removed = remove_ours(&staging, marker).map_err(|e| e.to_string());
             Abandoned {
                 staging,
                 output,
@@ -253,6 +255,95 @@ pub fn abandon_staging() -> Vec<Abandoned> {
         .collect();
     std::mem::forget(live);
     done
+}
+
+/// The staging folder of a writer other than a run's [`Staging`] (`cohortpress import fhir`
+/// writes participant folders into `PROGRAM/.cohortpress-import.staging/` and moves them into
+/// `PROGRAM/participants/`), registered like a run's so that an interrupt (SIGINT, SIGTERM)
+/// removes it ([`abandon_staging`]): an import stopped by a scheduler or a Ctrl-C left it in
+/// the program folder until the next import.
+///
+/// [`ImportStaging::create`] makes the folder and its marker file and registers it;
+/// [`ImportStaging::hold`] is held while anything is made inside it or moved out of it, so an
+/// interrupt removes it whole and nothing is made in it afterwards; [`ImportStaging::remove`]
+/// (or dropping it) removes it and takes it off the list.
+#[derive(Debug)]
+pub struct ImportStaging {
+    dir: PathBuf,
+    marker: &'static str,
+}
+
+impl ImportStaging {
+    /// Makes `dir` and the empty file `marker` in it (with the process's default access) and
+    /// registers it, with `output` the folder its contents are moved into. `dir` must not
+    /// exist.
+    pub fn create(
+        dir: &Path,
+        output: &Path,
+        marker: &'static str,
+    ) -> std::io::Result<ImportStaging> {
+        let mut live = live_staging();
+        fs::create_dir(dir)?;
+        let staging = ImportStaging {
+            dir: dir.to_path_buf(),
+            marker,
+        };
+        live.push((dir.to_path_buf(), output.to_path_buf(), marker));
+        // From here on dropping `staging` removes the folder; the lock is let go first.
+        drop(live);
+        fs::write(dir.join(marker), "")?;
+        Ok(staging)
+    }
+
+    /// The lock of the list of staging folders: hold it while making anything in the folder
+    /// or moving anything out of it. After an interrupt it is never let go, and the process
+    /// ends while the caller waits for it.
+    pub fn hold(&self) -> LiveHold {
+        LiveHold {
+            _guard: live_staging(),
+        }
+    }
+
+    /// Runs `move_out` (the renames that put the staged folders in place), then removes the
+    /// folder (what is left in it) and takes it off the list, all under the lock: an interrupt
+    /// comes before the first rename (nothing was moved) or after the folder is gone, so what
+    /// it says it left as it was was left as it was. The folder is removed, and `Err` returned,
+    /// when `move_out` fails too.
+    pub fn finish(mut self, move_out: impl FnOnce() -> std::io::Result<()>) -> Result<(), String> {
+        let mut live = live_staging();
+        let moved = move_out().map_err(|e| e.to_string());
+        let removed = self.remove_locked(&mut live).map_err(|e| e.to_string());
+        moved.and(removed)
+    }
+
+    fn remove_registered(&mut self) -> Result<(), StagingError> {
+        let mut live = live_staging();
+        self.remove_locked(&mut live)
+    }
+
+    fn remove_locked(
+        &mut self,
+        live: &mut Vec<(PathBuf, PathBuf, &'static str)>,
+    ) -> Result<(), StagingError> {
+        let Some(i) = live.iter().position(|(d, ..)| *d == self.dir) else {
+            // Removed already.
+            return Ok(());
+        };
+        let removed = remove_ours(&self.dir, self.marker);
+        live.remove(i);
+        removed
+    }
+}
+
+/// The lock of the list of staging folders, held ([`ImportStaging::hold`]).
+pub struct LiveHold {
+    _guard: std::sync::MutexGuard<'static, Vec<(PathBuf, PathBuf, &'static str)>>,
+}
+
+impl Drop for ImportStaging {
+    fn drop(&mut self) {
+        let _ = self.remove_registered();
+    }
 }
 
 /// A file being written into staging; [`StagingFile::finish`] flushes it and records it for
@@ -824,7 +915,7 @@ impl Staging {
             let mut live = live_staging();
             create_dir(&dir, access)?;
             new_file(&dir.join(STAGING_MARKER), access)?;
-            live.push((dir.clone(), out_dir.clone()));
+            live.push((dir.clone(), out_dir.clone(), STAGING_MARKER));
         }
         clear_interrupted_siblings(&parent, &name);
         Ok(Staging {
@@ -1048,7 +1139,7 @@ impl Staging {
             });
         }
         self.committed = true;
-        live.retain(|(dir, _)| *dir != self.dir);
+        live.retain(|(dir, ..)| *dir != self.dir);
         drop(live);
         // The marker goes last, so a staging folder is recognisable as ours until it is in place.
         let marker = self.final_dir.join(STAGING_MARKER);
@@ -1157,7 +1248,7 @@ impl Drop for Staging {
         if !self.committed {
             let mut live = live_staging();
             let _ = remove_ours(&self.dir, STAGING_MARKER);
-            live.retain(|(dir, _)| *dir != self.dir);
+            live.retain(|(dir, ..)| *dir != self.dir);
         }
     }
 }

@@ -44,7 +44,11 @@ pub fn dispatch(cli: Cli) -> i32 {
         }
         Command::Import {
             format: ImportFormat::Fhir { files, out, ids },
-        } => import_fhir(&files, &out, ids.as_deref()),
+        } => {
+            // For the line an interrupt leaves (the import logs nothing else).
+            init_logging(false, LogFormat::Text);
+            import_fhir(&files, &out, ids.as_deref())
+        }
         Command::Modules { program } => run::modules_command(program.as_deref()),
         Command::Templates {
             action: TemplatesAction::Dump { dir },

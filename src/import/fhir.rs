@@ -856,14 +856,23 @@ pub fn import(
         }
         std::fs::remove_dir_all(&staging).map_err(io)?;
     }
+    // Stopping by SIGINT or SIGTERM removes the staging folder, as it does a run's
+    // (crate::output::abandon_staging): a scheduler's stop or a Ctrl-C left it in the program
+    // folder, with the identified participant files written so far, until the next import.
+    #[cfg(unix)]
+    crate::modules::external::watch_interrupts();
     let write = || -> Result<(), String> {
         let e = |e: std::io::Error| e.to_string();
         let synced = |r: Result<(), crate::output::StagingError>| r.map_err(|e| e.to_string());
-        std::fs::create_dir_all(&staging).map_err(e)?;
-        std::fs::write(staging.join(IMPORT_MARKER), "").map_err(e)?;
+        // Registered as it is made; dropped on an error below, it is removed.
+        let registered =
+            crate::output::ImportStaging::create(&staging, &base, IMPORT_MARKER).map_err(e)?;
         std::fs::create_dir_all(&base).map_err(e)?;
         let mut folders = Vec::new();
         for (pid, data) in &plan {
+            // Held while the folder and its files are made: an interrupt that removed the
+            // staging folder meanwhile would have them made again, outside any staging.
+            let _hold = registered.hold();
             let d = staging.join(pid);
             std::fs::create_dir(&d).map_err(e)?;
             for (name, text) in participant_files(pid, data) {
@@ -878,9 +887,14 @@ pub fn import(
             &staging,
             folders.iter().map(PathBuf::as_path),
         ))?;
-        for (pid, _) in &plan {
-            std::fs::rename(staging.join(pid), base.join(pid)).map_err(e)?;
-        }
+        // Moved into place and the staging folder removed with no interrupt between: one
+        // removes the staging folder before the first folder is moved, or comes after.
+        registered.finish(|| {
+            for (pid, _) in &plan {
+                std::fs::rename(staging.join(pid), base.join(pid))?;
+            }
+            Ok(())
+        })?;
         // The new names themselves (and `participants` when the import made it).
         synced(crate::output::sync_dir(&base))?;
         synced(crate::output::sync_dir(out))
@@ -894,7 +908,6 @@ pub fn import(
             format!("cannot write the import ({e})"),
         ));
     }
-    std::fs::remove_dir_all(&staging).map_err(io)?;
     let mut s = format!(
         "imported {} participant{} ({} observations; {} skipped) into {}",
         plan.len(),

@@ -42,6 +42,20 @@ pub const KJ_LIKE_MEDIAN_NAMED_KCAL: f64 = 6_000.0;
 pub const KJ_PER_KCAL: f64 = 4.184;
 /// Plausible logged intake per day, kcal: above 0 and at most this (common practice).
 pub const MAX_KCAL_PER_DAY: f64 = 10_000.0;
+/// Energy per gram of the intake macros, kcal/g, in the order of [`MACROS`] (carbohydrate,
+/// fat, protein, free sugars): Atwater general factors, 4 kcal/g for protein and carbohydrate
+/// (free sugars are carbohydrate), 9 kcal/g for fat (7 kcal/g for alcohol, which intake.csv
+/// has no column for). FAO 2003, "Food energy – methods of analysis and conversion factors",
+/// FAO Food and Nutrition Paper 77, §3.
+pub const ATWATER_KCAL_PER_G: [f64; 4] = [4.0, 9.0, 4.0, 4.0];
+/// A row's carbohydrate, fat and protein whose energy (by [`ATWATER_KCAL_PER_G`]) is above
+/// this many times the row's kcal, plus [`MACRO_ENERGY_MARGIN_KCAL`], disagree with it: one of
+/// them is mistyped (common practice: twice covers fibre and sugar alcohols counted in a
+/// label's carbohydrate at 4 kcal/g and the general factors' error).
+pub const MACRO_ENERGY_MAX_RATIO: f64 = 2.0;
+/// Allowance for rounding on small rows (labels round energy to 5–10 kcal and grams to 1 g:
+/// a 5 kcal row may list 1 g each of carbohydrate, fat and protein, 17 kcal; common practice).
+pub const MACRO_ENERGY_MARGIN_KCAL: f64 = 100.0;
 /// Most minutes one activity row, or one day's rows together, can hold: 16 waking hours
 /// (common practice).
 pub const MAX_ACTIVITY_MINUTES: f64 = 960.0;
@@ -1538,7 +1552,7 @@ pub fn parse_intake(
             return None;
         }
         let mut macros = [None; 4];
-        for (slot, col) in macros.iter_mut().zip(MACROS) {
+        for ((slot, col), kcal_per_g) in macros.iter_mut().zip(MACROS).zip(ATWATER_KCAL_PER_G) {
             // Grams may be written in the cell (`45 g`).
             let grams = c.text(col).map(|t| match split_value_unit(t) {
                 (num, Some(u)) if u.eq_ignore_ascii_case("g") => {
@@ -1560,9 +1574,59 @@ pub fn parse_intake(
                         .expected("grams ≥ 0")
                         .found(format!("`{v}`")),
                 ),
+                // More grams of one nutrient in one row than the most anyone eats in a day
+                // ([`MAX_KCAL_PER_DAY`]) could hold: 99,999,999 g of protein reached the
+                // reports and external modules without a word.
+                Ok(Some(v)) if v * kcal_per_g > MAX_KCAL_PER_DAY => {
+                    let most = (MAX_KCAL_PER_DAY / kcal_per_g).floor();
+                    d.push(
+                        c.warn(col, format!("implausible `{col}`; the value is ignored"))
+                            .expected(format!(
+                                "at most {} g ({} kcal at {kcal_per_g} kcal/g, the most intake a day holds)",
+                                crate::diag::thousands(most as usize),
+                                crate::diag::thousands(MAX_KCAL_PER_DAY as usize),
+                            ))
+                            .found(format!("`{v}`"))
+                            .hint("check for a typing error (an extra digit, milligrams instead of grams)"),
+                    )
+                }
                 Ok(v) => *slot = v,
                 Err(Dropped) => {}
             }
+        }
+        // The energy of the row's carbohydrate, fat and protein (free sugars are part of the
+        // carbohydrate) far above its kcal: the kcal or one of the grams is mistyped, and
+        // which cannot be told.
+        let [carbs, fat, protein, _] = macros;
+        let macro_kcal = [(carbs, 0), (fat, 1), (protein, 2)]
+            .iter()
+            .filter_map(|&(g, i)| g.map(|g| g * ATWATER_KCAL_PER_G[i]))
+            .sum::<f64>();
+        let most = MACRO_ENERGY_MAX_RATIO * kcal + MACRO_ENERGY_MARGIN_KCAL;
+        if macro_kcal > most {
+            let named: Vec<String> = [(carbs, "carbs_g"), (fat, "fat_g"), (protein, "protein_g")]
+                .iter()
+                .filter_map(|&(g, n)| g.map(|g| format!("{n} {g}")))
+                .collect();
+            d.push(
+                c.warn(
+                    "kcal",
+                    "the row's grams hold far more energy than its kcal; the row is dropped",
+                )
+                .expected(format!(
+                    "carbohydrate, fat and protein at 4, 9 and 4 kcal/g (Atwater) giving at most {} × kcal + {} kcal ({} kcal)",
+                    MACRO_ENERGY_MAX_RATIO,
+                    MACRO_ENERGY_MARGIN_KCAL,
+                    most.round()
+                ))
+                .found(format!(
+                    "kcal `{kcal}`, {} ({} kcal)",
+                    named.join(", "),
+                    macro_kcal.round()
+                ))
+                .hint("check the kcal and the grams for a typing error"),
+            );
+            return None;
         }
         let total = c.table.row_labelled(c.row, &TOTAL_LABELS);
         Some(RawIntake {

@@ -336,6 +336,100 @@ fn a_failed_import_leaves_no_staging_behind() {
     );
 }
 
+/// An import stopped by SIGTERM (a scheduler's stop; SIGINT is a Ctrl-C) left
+/// `.cohortpress-import.staging`, with the identified files of the patients written so far, in
+/// the program folder until the next import: only `run` and `merge` removed their staging on an
+/// interrupt. It is removed now, the import ends as SIGTERM ends a process (143 in a shell),
+/// says so on standard error, and no participant folder was moved into place. Signalled once
+/// the staging folder holds a few of the 3,000 patients' folders.
+#[cfg(unix)]
+#[test]
+fn an_import_stopped_by_sigterm_leaves_no_staging_behind() {
+    use std::io::Read as _;
+    use std::os::unix::process::ExitStatusExt as _;
+    use std::time::{Duration, Instant};
+    let dir = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let file = dir.path().join("big.ndjson");
+    let mut text = String::new();
+    for i in 0..3000 {
+        let pid = format!("P{i:05}");
+        text.push_str(&json!({"resourceType": "Patient", "id": pid, "gender": "female", "birthDate": "1980-01-01"}).to_string());
+        text.push('\n');
+        for day in 1..=3 {
+            let w = json!({"resourceType": "Observation", "id": format!("w{i}-{day}"), "status": "final",
+                "code": {"coding": [{"system": LOINC, "code": BODY_WEIGHT}]},
+                "subject": {"reference": format!("Patient/{pid}")}, "effectiveDateTime": format!("2026-04-0{day}"),
+                "valueQuantity": {"value": 80.0, "system": "http://unitsofmeasure.org", "code": "kg"}});
+            text.push_str(&w.to_string());
+            text.push('\n');
+        }
+    }
+    fs::write(&file, text).unwrap();
+    let out = dir.path().join("p");
+    let staging = out.join(".cohortpress-import.staging");
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_cohortpress"))
+        .args(["import", "fhir"])
+        .arg(&file)
+        .arg("--out")
+        .arg(&out)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    // A folder for the marker and at least three patients: the import is writing.
+    let deadline = Instant::now() + Duration::from_secs(120);
+    while fs::read_dir(&staging).map_or(0, |d| d.count()) < 4 {
+        if let Some(status) = child.try_wait().unwrap() {
+            panic!("the import ended ({status}) before its staging folder held 3 patients");
+        }
+        assert!(
+            Instant::now() < deadline,
+            "the import never filled its staging folder"
+        );
+        std::thread::sleep(Duration::from_millis(2));
+    }
+    let killed = std::process::Command::new("kill")
+        .args(["-TERM", &child.id().to_string()])
+        .status()
+        .unwrap();
+    assert!(killed.success());
+    let status = child.wait().unwrap();
+    assert_eq!(status.signal(), Some(15), "{status}");
+    assert!(
+        !staging.exists(),
+        "the staging folder is left: {:?}",
+        fs::read_dir(&staging).map(|d| d.count())
+    );
+    let mut stderr = String::new();
+    child
+        .stderr
+        .take()
+        .unwrap()
+        .read_to_string(&mut stderr)
+        .unwrap();
+    assert!(
+        stderr.contains(&format!(
+            "interrupted by SIGTERM: the run stops here; the unfinished output it was writing \
+             ({}) was removed, and {} was left as it was",
+            staging.display(),
+            out.join("participants").display()
+        )),
+        "{stderr}"
+    );
+    assert_eq!(
+        fs::read_dir(out.join("participants")).unwrap().count(),
+        0,
+        "a participant folder was moved into place"
+    );
+    // Only the lock file and the (empty) participants folder are left in the program folder.
+    let mut left: Vec<String> = fs::read_dir(&out)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    left.sort();
+    assert_eq!(left, [".cohortpress-import.lock", "participants"]);
+}
+
 /// The imported files are on disk before their folders are moved into place, as a run's
 /// output is: the import wrote them and renamed their folders under `participants/` with no
 /// sync at all, so a power cut soon after a successful import could leave participant folders

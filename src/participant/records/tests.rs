@@ -3300,3 +3300,80 @@ fn a_comma_with_no_space_or_in_a_number_or_before_a_date_or_unit_is_named() {
         "{w:#?}"
     );
 }
+
+#[test]
+fn implausible_macro_grams_are_not_read() {
+    // 99,999,999 g of protein beside 10 kcal was read without a word and reached the reports
+    // and external modules.
+    let (v, diags) = intake(
+        "date,carbs_g,fat_g,protein_g,kcal,free_sugars_g\n2026-04-01,200,70,99999999,2000,5\n2026-04-02,250,70,3000,2100,4000\n",
+    );
+    assert_eq!(diags.len(), 3, "{diags:#?}");
+    let at: Vec<_> = diags.iter().map(|d| (d.line, d.column)).collect();
+    assert_eq!(
+        at,
+        [(Some(2), Some(4)), (Some(3), Some(4)), (Some(3), Some(6))]
+    );
+    assert!(
+        diags[0]
+            .message
+            .contains("implausible `protein_g`; the value is ignored")
+    );
+    // 10,000 kcal a day (the most intake a day holds) is 2,500 g at 4 kcal/g.
+    assert!(
+        diags[0].to_string().contains("at most 2,500 g"),
+        "{}",
+        diags[0]
+    );
+    assert!(diags[0].to_string().contains("`99999999`"), "{}", diags[0]);
+    assert_eq!(v.len(), 2);
+    assert_eq!(v[0].protein_g, None);
+    assert_eq!((v[0].carbs_g, v[0].fat_g), (Some(200.0), Some(70.0)));
+    assert_eq!(v[1].protein_g, None);
+    assert_eq!(v[1].free_sugars_g, None);
+    assert_eq!(v[1].kcal, 2100.0);
+    // Fat is 9 kcal/g: 1,111 g is the most, 1,112 g is not read.
+    let (v, diags) = intake("date,kcal,fat_g\n2026-04-01,9000,1111\n2026-04-02,9000,1112\n");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(3));
+    assert_eq!((v[0].fat_g, v[1].fat_g), (Some(1111.0), None));
+}
+
+#[test]
+fn grams_far_above_the_rows_energy_drop_the_row() {
+    // The row of the report: kcal 10 with 10 g carbohydrate and 10 g fat (130 kcal) and an
+    // impossible protein.
+    let (v, diags) = intake(
+        "date,kcal,carbs_g,fat_g,protein_g,free_sugars_g\n2026-05-04,10,10,10,99999999,5\n2026-05-04,600,60,20,30,10\n",
+    );
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(5)));
+    assert_eq!((diags[1].line, diags[1].column), (Some(2), Some(2)));
+    assert!(
+        diags[1]
+            .message
+            .contains("far more energy than its kcal; the row is dropped"),
+        "{}",
+        diags[1]
+    );
+    // 2 × 10 + 100 = 120 kcal at most; 10 × 4 + 10 × 9 = 130 found.
+    let text = diags[1].to_string();
+    assert!(
+        text.contains("(120 kcal)") && text.contains("(130 kcal)"),
+        "{text}"
+    );
+    assert_eq!(v.len(), 1);
+    assert_eq!(v[0].kcal, 600.0);
+    assert_eq!(v[0].protein_g, Some(30.0));
+    // A protein of 400 g (1,600 kcal) beside 150 kcal (a dropped digit of 1500): dropped; at
+    // 1,500 kcal it is read. 2 × 150 + 100 = 400 kcal at most.
+    let (v, diags) = intake("date,kcal,protein_g\n2026-04-01,150,400\n2026-04-02,1500,400\n");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(2));
+    assert_eq!(v.len(), 1);
+    assert_eq!((v[0].kcal, v[0].protein_g), (1500.0, Some(400.0)));
+    // A small row rounded on its label (5 kcal, 1 g each: 17 kcal) is read.
+    let (v, diags) = intake("date,kcal,carbs_g,fat_g,protein_g\n2026-04-01,5,1,1,1\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].fat_g, Some(1.0));
+}
