@@ -909,9 +909,16 @@ impl CellTable {
     /// ([`CellTable::add_difference`]) and for a hidden cell whose programs cannot be solved
     /// or which no relation bounds (no range is then printed).
     pub fn ranges(&mut self, min_cell_size: u32) -> Vec<Option<(u64, u64)>> {
+        // The points these programs reach are not kept: without the primary cells' bound they
+        // lie outside what the narrowness check ([`CellTable::first_narrow`]) allows, and kept
+        // as seen they would prove a cell wide there that its own programs find narrow (a
+        // primary at 0, its complement at the relation's total: [1, 12 | 13] left the 12
+        // "seen" from 0 to 13 where the check's bound allows 3 to 12).
+        let kept = self.seen.clone();
         self.printing = true;
         let out = self.ranges_printed(min_cell_size);
         self.printing = false;
+        self.seen = kept;
         out
     }
 
@@ -1879,6 +1886,23 @@ mod tests {
             }
         });
         out
+    }
+
+    /// The printed ranges leave out the primary cells' 1 … min − 1; the points their programs
+    /// reach must not be kept as "seen" for the narrowness check, which keeps that bound: a
+    /// point outside its bounds would prove a cell wide without a program of its own on the
+    /// next call (after a cell is forced hidden, say), where the check's own programs can find
+    /// it narrow. [1, 12 | 13], min 11: within the check's bounds the 12 lies in 3 … 12, the 1
+    /// in 1 … 10; the printed ranges' programs reach 0 … 13 for both.
+    #[test]
+    fn the_printed_ranges_leave_no_points_outside_the_narrowness_checks_bounds() {
+        let (mut t, parts, _) = row(&[1, 12], 13);
+        let ranges = t.apply_with_ranges(11);
+        assert_eq!(ranges[parts[0]], Some((0, 13)));
+        assert_eq!(ranges[parts[1]], Some((0, 13)));
+        let (small, other) = (t.seen[parts[0]], t.seen[parts[1]]);
+        assert!(small.0 >= 1.0 && small.1 <= 10.0, "{small:?}");
+        assert!(other.0 >= 3.0 && other.1 <= 12.0, "{other:?}");
     }
 
     #[test]

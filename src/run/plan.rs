@@ -489,8 +489,16 @@ pub fn resolve_period(
         let next = first_month
             .checked_add_months(chrono::Months::new(1))
             .expect("date in range");
+        // Before the program has started there is no part of it to report now: `--from
+        // {start} --to {as_of}` would end before it begins, and is refused.
+        let now = if as_of >= start {
+            format!(" (or now with `--from {start} --to {as_of}`)")
+        } else {
+            "; the program starts after the as-of date, so no part of it can be reported yet"
+                .to_string()
+        };
         return Err(format!(
-            "no full month of the program has ended by the as-of date {as_of}: program.yaml's `report.period: last_full_month` gives {} to {}, before the program starts on {start}; the first month, {}, can be reported from {next} (or now with `--from {start} --to {as_of}`)",
+            "no full month of the program has ended by the as-of date {as_of}: program.yaml's `report.period: last_full_month` gives {} to {}, before the program starts on {start}; the first month, {}, can be reported from {next}{now}",
             raw.from,
             raw.to,
             first_month.format("%Y-%m"),

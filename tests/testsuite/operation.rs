@@ -1541,3 +1541,23 @@ fn a_run_before_the_first_month_has_ended_says_when_it_can_report() {
         r.stderr
     );
 }
+
+/// Run before the program has even started (a cron line set up in March for a program from
+/// 1 April): the message offered "or now with `--from 2026-04-01 --to 2026-03-20`", a period
+/// that ends before it begins and that the tool refuses ("--from 2026-04-01 is after --to
+/// 2026-03-20"). No period can be reported yet, and the message says when the first can.
+#[test]
+fn a_run_before_the_program_starts_offers_no_period_that_ends_before_it_begins() {
+    let t = ProgramTest::fixture("report-small");
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-03-20"]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr.contains(
+            "the first month, 2026-04, can be reported from 2026-05-01; the program starts after the as-of date, so no part of it can be reported yet"
+        ),
+        "{}",
+        r.stderr
+    );
+    assert!(!r.stderr.contains("--to 2026-03-20"), "{}", r.stderr);
+    assert!(!t.dir.join("reports").exists());
+}

@@ -34,7 +34,8 @@
 //! weigh-in in two days "3.5 days a week", a rate no week has tested. [`period_counts`] gives
 //! the counts over those days instead. A week counts towards
 //! `weeks_meeting_activity_target_percent` when it overlaps the covered part of the period and
-//! is whole (7 covered days); with no whole week the figure is empty (too little data), never
+//! is whole (7 covered days: a week that begins before the period is judged with those days,
+//! for someone enrolled by then); with no whole week the figure is empty (too little data), never
 //! a share of partial weeks judged against scaled targets.
 //! Streaks and gaps are computed over the whole program to date.
 
@@ -394,7 +395,7 @@ impl MetricModule for AdherenceModule {
                     names::WEEKS_MEETING_ACTIVITY_TARGET_PERCENT,
                     "scalar",
                     "%",
-                    "whole weeks (7 days followed) of the period meeting the activity target; a week the period's start or end, enrolment or leaving cut short is not judged (empty when no activity was logged since enrolment, or when no whole week of the period was followed: too little data)",
+                    "whole weeks (7 days followed) of the period meeting the activity target; a week that enrolment, leaving or the period's end cuts short is not judged, and one that begins before the period is judged whole, its days before the period included (empty when no activity was logged since enrolment, or when no whole week of the period was followed: too little data)",
                 ),
                 OutputSpec::new(
                     names::LONGEST_WEIGH_IN_STREAK_DAYS,

@@ -446,6 +446,36 @@ fn nothing_counts_after_withdrawal() {
     assert!(out.flags.iter().all(|f| f.code != "gap"));
 }
 
+/// A week that begins before the period and ends in it is whole for someone enrolled before
+/// it: it is judged with its days before the period, as its row of the weekly table shows 7
+/// covered days. The descriptor, docs/METHODS.md and docs/GUIDE.md said a week "the period's
+/// start" cut short was not judged; only the period's end, enrolment and leaving cut a week
+/// short.
+#[test]
+fn a_week_across_the_periods_start_is_judged_whole_and_the_descriptor_says_so() {
+    // April 2027 starts on a Thursday: the week of Monday 29 March has 4 days in the period.
+    let c = ctx("2027-04-01", "2027-04-30");
+    let mut data = empty("2027-03-01");
+    data.weights = vec![weigh("2027-03-29", 80.0), weigh("2027-04-28", 79.0)];
+    // 150 moderate minutes on the Monday before the period: that week meets the target.
+    data.activity = vec![act("2027-03-29", 150.0, 3.5), act("2027-04-06", 30.0, 3.5)];
+    let out = run(&c, &data);
+    // Weeks of 29 Mar (met), 5, 12 and 19 Apr (not); 26 Apr has 5 days (period's end): 1 in 4.
+    assert_eq!(
+        out.scalar("weeks_meeting_activity_target_percent"),
+        Some(25.0)
+    );
+    let spec = AdherenceModule.spec();
+    let described = &spec
+        .outputs
+        .iter()
+        .find(|o| o.name == "weeks_meeting_activity_target_percent")
+        .unwrap()
+        .description;
+    assert!(!described.contains("period's start"), "{described}");
+    assert!(described.contains("before the period"), "{described}");
+}
+
 /// For someone who left, participants.csv gave two "days since" figures a reader could not
 /// reconcile (sample program, September 2026, SG-018, left 27 July: 67 days since the last
 /// weigh-in, 1 since the last record, when a weigh-in is a record). They count to different
