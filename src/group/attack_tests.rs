@@ -1316,19 +1316,7 @@ fn reissues_after_removals_keep_the_headline_counts_as_bands() {
 #[test]
 fn week_means_of_a_split_do_not_weigh_out_who_stopped() {
     let min = 11;
-    let mut people = Vec::new();
-    for i in 0..40 {
-        let (site, weeks, slope) = if i < 22 {
-            ("Kiln Row", if i == 0 { 8 } else { 12 }, -0.5)
-        } else {
-            ("Harbour Yard", 12, -0.2)
-        };
-        let mut p = person(&format!("P{i:02}"), site, -3.0 - (i % 5) as f64, true, -2.0);
-        p.row.weekly_change_percent = (0..weeks)
-            .map(|w| (w, slope * f64::from(w) - 0.013 * i as f64))
-            .collect();
-        people.push(p);
-    }
+    let people = two_sites_one_stopped();
     let attack = |report: &Value| -> Vec<String> {
         let week_of = |st: &Value, w: u64| -> Option<((u64, u64), f64)> {
             let p = st["trajectory"]
@@ -1409,6 +1397,25 @@ fn week_means_of_a_split_do_not_weigh_out_who_stopped() {
     );
 }
 
+/// 40 people weighed weekly for 12 weeks at two sites: Kiln Row's 22 (one of whom stops after
+/// week 8) and Harbour Yard's 18, whose weekly changes differ by site and person.
+fn two_sites_one_stopped() -> Vec<Person> {
+    (0..40)
+        .map(|i| {
+            let (site, weeks, slope) = if i < 22 {
+                ("Kiln Row", if i == 0 { 8 } else { 12 }, -0.5)
+            } else {
+                ("Harbour Yard", 12, -0.2)
+            };
+            let mut p = person(&format!("P{i:02}"), site, -3.0 - (i % 5) as f64, true, -2.0);
+            p.row.weekly_change_percent = (0..weeks)
+                .map(|w| (w, slope * f64::from(w) - 0.013 * i as f64))
+                .collect();
+            p
+        })
+        .collect()
+}
+
 /// The same weighted-mean attack over two releases. Twelve people who enrol late at the
 /// smaller site (Harbour Yard, 18 → 30 started) make it the larger one by the second release,
 /// while the later weeks' figures stay the same (the newcomers have no data in them yet). The
@@ -1421,19 +1428,7 @@ fn week_means_of_a_split_do_not_weigh_out_who_stopped() {
 #[test]
 fn week_means_withheld_in_one_release_are_not_printed_in_the_next() {
     let min = 11;
-    let mut first = Vec::new();
-    for i in 0..40 {
-        let (site, weeks, slope) = if i < 22 {
-            ("Kiln Row", if i == 0 { 8 } else { 12 }, -0.5)
-        } else {
-            ("Harbour Yard", 12, -0.2)
-        };
-        let mut p = person(&format!("P{i:02}"), site, -3.0 - (i % 5) as f64, true, -2.0);
-        p.row.weekly_change_percent = (0..weeks)
-            .map(|w| (w, slope * f64::from(w) - 0.013 * i as f64))
-            .collect();
-        first.push(p);
-    }
+    let first = two_sites_one_stopped();
     let mut second = first.clone();
     for i in 40..52 {
         let mut p = person(&format!("P{i:02}"), "Harbour Yard", -1.0, true, -1.0);
