@@ -1838,9 +1838,40 @@ fn read_records(
         }
         if !fits {
             ctx.count_row();
+            // A field holding line breaks was quoted, and its quote closed lines below, or
+            // never: the lines between were read into it, and are lost with this row. Said
+            // so, with the lines, rather than only "N fields" (a quote left open in a weight,
+            // `"81,4`, took every row after it into the row's last field).
+            let swallowed = rec.iter().enumerate().find_map(|(k, f)| {
+                // A quote never closed runs to the end of the file, its last line end included.
+                let f = f.trim_end_matches(['\r', '\n']);
+                let breaks =
+                    f.matches('\n').count() + f.matches('\r').count() - f.matches("\r\n").count();
+                (breaks > 0).then_some((k, breaks))
+            });
+            let lost = swallowed.map_or(String::new(), |(k, breaks)| {
+                let below = if breaks == 1 {
+                    format!("the line below it (line {})", line + 1)
+                } else {
+                    format!(
+                        "the {breaks} lines below it (lines {}–{})",
+                        line + 1,
+                        line + breaks as u64
+                    )
+                };
+                format!(
+                    ", and with it {below}: a quote (`\"`) in field {}{} is closed only there, \
+                     or never, so {} read into that field",
+                    k + 1,
+                    written
+                        .get(k)
+                        .map_or(String::new(), |n| format!(" (`{n}`)")),
+                    if breaks == 1 { "it was" } else { "they were" }
+                )
+            });
             let mut d = ctx
                 .warning(format!(
-                    "row has {} but the header has {}; the row is dropped",
+                    "row has {} but the header has {}; the row is dropped{lost}",
                     fields(rec.len()),
                     names.len()
                 ))
@@ -1859,7 +1890,11 @@ fn read_records(
                             && a.chars().all(|c| c.is_ascii_digit())
                             && b.chars().all(|c| c.is_ascii_digit())
                     });
-            d = d.hint(if split_decimal {
+            d = d.hint(if swallowed.is_some() {
+                "close the quote where the value ends, or remove it; then the lines below are \
+                 read as rows of their own"
+                    .to_string()
+            } else if split_decimal {
                 "a decimal comma (`72,5`) splits a number into two fields; write `72.5`".to_string()
             } else {
                 "every row needs one value per header column (leave a value empty, but keep its delimiter); quote text containing the delimiter".to_string()
@@ -4528,6 +4563,41 @@ mod tests {
         );
         assert!(t.is_some());
         assert!(d.is_empty(), "{d:?}");
+    }
+
+    /// A quote left open in a value (`"81,4`) takes every line after it into that field,
+    /// up to where a quote closes it or the end of the file: the row is dropped with those
+    /// lines, and the message said only "2 fields", though two more weigh-ins were lost.
+    #[test]
+    fn a_quote_left_open_names_the_lines_it_took_with_it() {
+        let (t, d) = read(
+            "date,Weight,unit\n2026-05-01,81.2,kg\n2026-05-02,\"81,4,kg\n2026-05-03,81.0,kg\n\
+             2026-05-04,80.9,kg\n",
+            &CsvOptions::default(),
+        );
+        assert_eq!(t.unwrap().rows.len(), 1);
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].line, Some(3));
+        assert!(
+            d[0].message.ends_with(
+                "the row is dropped, and with it the 2 lines below it (lines 4–5): a quote \
+                 (`\"`) in field 2 (`Weight`) is closed only there, or never, so they were read \
+                 into that field"
+            ),
+            "{}",
+            d[0]
+        );
+        assert!(d[0].hint.as_deref().unwrap().starts_with("close the quote"));
+        // A quote closed one line below takes that one line.
+        let (_, d) = read(
+            "date,weight,unit\n2026-05-02,\"81,4,kg\n2026-05-03\",81.0,kg,x\n2026-05-04,80.9,kg\n",
+            &CsvOptions::default(),
+        );
+        assert!(
+            d.iter()
+                .any(|d| d.line == Some(2) && d.message.contains("the line below it (line 3)")),
+            "{d:?}"
+        );
     }
 
     #[test]
