@@ -1223,6 +1223,10 @@ fn weight_chart(
         hlines,
         vlines,
         alt_text: alt.clone(),
+        // The days the description names: from the program's start or enrolment to the
+        // period's end (or the day they left). A last weigh-in months before it showed as an
+        // axis ending in April under "Weight chart for 1 Apr 2026 to 30 Sep 2026".
+        x_span: Some((plan.program.info.start.max(enrolled), to)),
     });
     (
         chart,
@@ -1568,6 +1572,7 @@ fn energy_section(
         hlines: vec![],
         vlines: vec![],
         alt_text: alt,
+        x_span: None,
     }));
     let view = EnergyView {
         items,

@@ -452,6 +452,61 @@ fn the_weight_chart_of_someone_who_withdrew_is_described_to_that_day() {
     );
 }
 
+/// Someone who weighed in twice in early April and not since got a September report whose
+/// weight chart's axis ran from 1 Apr to 10 Apr ("1 Apr", "8 Apr"), under the words "Weight
+/// chart for 1 Apr 2026 to 30 Sep 2026": five months without a weigh-in did not show, and the
+/// drawing read as a report on April. The axis now runs over the days the description names.
+#[test]
+fn the_weight_chart_runs_to_the_periods_end_without_recent_weigh_ins() {
+    let t = ProgramTest::demo(2);
+    let weights = t.dir.join("participants/SG-001/weights.csv");
+    let text = std::fs::read_to_string(&weights).unwrap();
+    let kept: Vec<&str> = text.lines().take(3).collect();
+    assert!(kept[1].starts_with("2026-04-0"), "{kept:?}");
+    std::fs::write(&weights, kept.join("\n") + "\n").unwrap();
+    let out = t.dir.parent().unwrap().join("out");
+    let out_s = out.to_string_lossy().into_owned();
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--period",
+        "2026-09",
+        "--as-of",
+        "2026-10-05",
+        "--out",
+        &out_s,
+        "--formats",
+        "html",
+    ]);
+    assert!(r.code <= 1, "{r:?}");
+    let html = std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap();
+    assert!(
+        html.contains("Weight chart for 1 Apr 2026 to 30 Sep 2026"),
+        "the description names the period"
+    );
+    // The weight chart is drawn first, wide and then narrow: each axis reaches September.
+    let svgs: Vec<&str> = html
+        .split("<svg")
+        .skip(1)
+        .map(|s| &s[..s.find("</svg>").unwrap()])
+        .filter(|s| s.contains("Weight chart for"))
+        .collect();
+    assert_eq!(svgs.len(), 2, "the weight chart, wide and narrow");
+    for svg in svgs {
+        let labels: Vec<&str> = svg
+            .split("<text")
+            .skip(1)
+            .filter_map(|s| Some(&s[s.find('>')? + 1..s.find("</text>")?]))
+            .collect();
+        assert!(
+            labels
+                .iter()
+                .any(|l| l.trim().ends_with(" Sep") || l.trim().ends_with(" Aug")),
+            "the axis reaches the period's end: {labels:?}"
+        );
+    }
+}
+
 /// Sample program, September 2026: SG-050's weekly implied intake stops after the week of 7 Sep
 /// as her loss grows fastest (the module withholds it), and the table read "–" with nothing
 /// saying why. SG-001's last week, after her last weigh-in on 26 Sep, has no trend to read and
