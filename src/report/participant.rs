@@ -1474,9 +1474,19 @@ fn energy_section(
     } else {
         ""
     };
-    let mut explanation = format!(
-        "{how_total}{rest} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard.{balance} Ranges are 95 % intervals."
-    );
+    // Said only where an implied intake is shown, above or in a week of the table: with too
+    // few weigh-ins for a trend the words explained a figure the report did not have.
+    let implied_words = if implied.is_some()
+        || e.weekly_energy
+            .iter()
+            .any(|r| r.implied_intake_kcal_per_day.is_some())
+    {
+        " The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard."
+    } else {
+        ""
+    };
+    let mut explanation =
+        format!("{how_total}{rest}{implied_words}{balance} Ranges are 95 % intervals.");
     if let Some(left) = left_before {
         items.retain(|k| {
             k.label == "Resting energy (estimated)" || k.label == "Resting-energy equation"

@@ -452,12 +452,9 @@ fn the_weight_chart_of_someone_who_withdrew_is_described_to_that_day() {
     );
 }
 
-/// Someone who weighed in twice in early April and not since got a September report whose
-/// weight chart's axis ran from 1 Apr to 10 Apr ("1 Apr", "8 Apr"), under the words "Weight
-/// chart for 1 Apr 2026 to 30 Sep 2026": five months without a weigh-in did not show, and the
-/// drawing read as a report on April. The axis now runs over the days the description names.
-#[test]
-fn the_weight_chart_runs_to_the_periods_end_without_recent_weigh_ins() {
+/// The September HTML report of a demo participant (SG-001) whose weigh-ins are cut to the
+/// first two, in early April: too few for a weight trend, so no implied intake either.
+fn report_with_two_april_weigh_ins() -> String {
     let t = ProgramTest::demo(2);
     let weights = t.dir.join("participants/SG-001/weights.csv");
     let text = std::fs::read_to_string(&weights).unwrap();
@@ -479,7 +476,46 @@ fn the_weight_chart_runs_to_the_periods_end_without_recent_weigh_ins() {
         "html",
     ]);
     assert!(r.code <= 1, "{r:?}");
-    let html = std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap();
+    std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap()
+}
+
+/// The energy section's explanation said "The intake implied by your weight trend comes from a
+/// published model …; it often differs from logged intake" in a report that shows no implied
+/// intake anywhere, neither above nor in the weekly table (two weigh-ins: no trend). It now
+/// explains only what the section shows.
+#[test]
+fn the_energy_section_explains_an_implied_intake_only_where_it_shows_one() {
+    let html = report_with_two_april_weigh_ins();
+    let energy = &html[html
+        .find("aria-labelledby=\"h-energy\"")
+        .expect("energy section")..];
+    let energy = &energy[..energy.find("</section>").expect("its end")];
+    assert!(energy.contains("Resting energy (estimated)"), "{energy}");
+    assert!(!energy.contains("Intake implied by your weight trend"));
+    assert!(
+        !energy.contains("The intake implied by your weight trend comes from"),
+        "{energy}"
+    );
+    // The sample's SG-001 shows one, and keeps the words.
+    let sample = contexts().participants["SG-001"]
+        .energy
+        .as_ref()
+        .expect("energy section")
+        .explanation
+        .clone();
+    assert!(
+        sample.contains("The intake implied by your weight trend comes from"),
+        "{sample}"
+    );
+}
+
+/// Someone who weighed in twice in early April and not since got a September report whose
+/// weight chart's axis ran from 1 Apr to 10 Apr ("1 Apr", "8 Apr"), under the words "Weight
+/// chart for 1 Apr 2026 to 30 Sep 2026": five months without a weigh-in did not show, and the
+/// drawing read as a report on April. The axis now runs over the days the description names.
+#[test]
+fn the_weight_chart_runs_to_the_periods_end_without_recent_weigh_ins() {
+    let html = report_with_two_april_weigh_ins();
     assert!(
         html.contains("Weight chart for 1 Apr 2026 to 30 Sep 2026"),
         "the description names the period"
