@@ -479,6 +479,50 @@ fn report_with_two_april_weigh_ins() -> String {
     std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap()
 }
 
+/// Someone who keeps a food and activity log but has never weighed in got a report whose "Where
+/// you stand" was a heading over nothing, whose weight chart's description said "weigh-ins (too
+/// few yet for a smoothed trend)" above "No data for this period", whose headline spoke of "too
+/// few recent weigh-ins", and whose energy section showed the equation's name alone under the
+/// words "the total above covers this period". Each now says that no weigh-in is recorded yet.
+#[test]
+fn a_report_without_any_weigh_in_says_so_where_the_weight_would_be() {
+    let t = ProgramTest::demo(2);
+    std::fs::remove_file(t.dir.join("participants/SG-001/weights.csv")).unwrap();
+    let out = t.dir.parent().unwrap().join("out");
+    let out_s = out.to_string_lossy().into_owned();
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--period",
+        "2026-09",
+        "--as-of",
+        "2026-10-05",
+        "--out",
+        &out_s,
+        "--formats",
+        "html",
+    ]);
+    assert!(r.code <= 1, "{r:?}");
+    let html = std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap();
+    let section = |id: &str| {
+        let s = &html[html.find(&format!("aria-labelledby=\"{id}\"")).expect(id)..];
+        s[..s.find("</section>").expect("its end")].to_string()
+    };
+    let summary = section("h-summary");
+    assert!(summary.contains("no weigh-in recorded yet"), "{summary}");
+    let weight = section("h-weight");
+    assert!(!weight.contains("too few yet"), "{weight}");
+    assert!(weight.contains("no weigh-in recorded yet"), "{weight}");
+    let energy = section("h-energy");
+    assert!(!energy.contains("the total above"), "{energy}");
+    assert!(energy.contains("no weigh-in recorded yet"), "{energy}");
+    assert!(
+        !html.contains("There are too few recent weigh-ins"),
+        "the headline"
+    );
+    assert!(html.contains("No weigh-in is recorded yet"), "the headline");
+}
+
 /// The energy section's explanation said "The intake implied by your weight trend comes from a
 /// published model …; it often differs from logged intake" in a report that shows no implied
 /// intake anywhere, neither above nor in the weekly table (two weigh-ins: no trend). It now
