@@ -98,6 +98,10 @@ pub struct Window {
     pub follow_up_weigh_ins: bool,
     /// The run's "today": later data are future data and dropped.
     pub as_of: NaiveDate,
+    /// The first day of the period a run reports; `None` for `check`. Rows dated after a
+    /// withdrawal on an earlier day are left out without a warning: the run of the month the
+    /// person left said so (see [`in_window`]).
+    pub reported_from: Option<NaiveDate>,
     /// The profile's height, cm, when known: weigh-ins that give no adult's BMI in the unit
     /// they declare, but do in the other, are in the other unit.
     pub height_cm: Option<f64>,
@@ -409,6 +413,13 @@ fn dedupe<T: SameValue>(
 /// `--as-of`) leaves every later row out by design, and an enrolment date typed a month late
 /// leaves out a month of rows: one note per file and kind says so, where a note per row filled
 /// the participant's report (69 notes for one participant's re-issued month).
+///
+/// Rows after a withdrawal are not counted in the file's rows either (`*_rows_in_file`), and
+/// are warned about only by `check` and by a run whose period does not begin after the
+/// withdrawal (the month the person left): a scale that kept syncing into the folder of
+/// someone who had withdrawn ended every later monthly run "with warnings" (exit code 1) for
+/// something already known. After withdrawn consent the warning gives neither the number nor
+/// the dates of those rows (nothing of them is shown), and says what to do.
 fn in_window<T>(
     rows: Vec<Parsed<T>>,
     w: &Window,
@@ -441,6 +452,9 @@ fn in_window<T>(
         .into_iter()
         .filter(|r| match why(r.date) {
             Some(k) => {
+                if matches!(k, Out::AfterWithdrawal(_)) {
+                    ctx.uncount_row();
+                }
                 match left.iter_mut().find(|x| x.0 == k) {
                     Some(x) => {
                         x.2 = x.2.min(r.date);
@@ -455,6 +469,16 @@ fn in_window<T>(
         })
         .collect();
     for (kind, line, lo, hi, n) in left {
+        if let Out::AfterWithdrawal(x) = kind {
+            // Said by the run of the month they left (or an earlier one) and by `check`.
+            if w.reported_from.is_some_and(|from| x < from) {
+                continue;
+            }
+            if !w.follow_up_weigh_ins {
+                diags.push(after_withdrawn_consent(x, line, col, ctx));
+                continue;
+            }
+        }
         let dates = if lo == hi {
             lo.to_string()
         } else {
@@ -505,6 +529,47 @@ fn in_window<T>(
         );
     }
     kept
+}
+
+/// The end of the `expected` of [`after_withdrawn_consent`], by which the participant's report
+/// recognises it ([`is_after_withdrawn_consent`]).
+const CONSENT_WITHDRAWN: &str = "the participant withdrew consent to the use of their data";
+
+/// The warning about a file of someone who withdrew consent on `withdrew` that holds rows dated
+/// after it (the first at `line`): for the program staff, what to do. It gives neither their
+/// number nor their dates, which are the person's data after consent was withdrawn.
+fn after_withdrawn_consent(
+    withdrew: NaiveDate,
+    line: u64,
+    col: Option<u64>,
+    ctx: &FileCtx,
+) -> Diagnostic {
+    // Short enough for the run log's summary of warnings, which cuts messages at 120
+    // characters.
+    ctx.warning(format!(
+        "rows dated after consent was withdrawn ({withdrew}) are not read: stop what adds them, \
+         remove them"
+    ))
+    .at(line, col)
+    .field("date")
+    .expected(format!(
+        "no rows dated after {withdrew}: {CONSENT_WITHDRAWN}"
+    ))
+    .found(format!("rows dated after {withdrew}"))
+    .hint(format!(
+        "the first is at this line; they are not shown or counted anywhere. Stop whatever still \
+         adds this participant's records to their folder (a scale or app that syncs into it) and \
+         remove the rows dated after {withdrew}; runs for later months leave them out without a \
+         warning, and `cohortpress check` lists them until they are gone"
+    ))
+}
+
+/// Whether `d` is the warning of [`after_withdrawn_consent`] (for the staff: the participant's
+/// own report leaves it out).
+pub fn is_after_withdrawn_consent(d: &Diagnostic) -> bool {
+    d.expected
+        .as_deref()
+        .is_some_and(|e| e.ends_with(CONSENT_WITHDRAWN))
 }
 
 #[derive(Debug, Clone, Copy, PartialEq)]
