@@ -164,6 +164,12 @@ struct Parsed<T> {
 /// Reads the rows of `table` through `f`, skipping rows `f` refuses and rows that repeat
 /// earlier rows on strong evidence ([`Table::repeated_rows`]).
 ///
+/// Rows dated after a withdrawal of consent (`w`) are not read at all: their values are neither
+/// checked nor warned about, nor counted in the file's rows, and the file gets the one warning
+/// of [`after_withdrawn_consent`] (when the run's period calls for it, see [`in_window`]). A
+/// scale that kept syncing into such a folder wrote a row whose weight did not read, and every
+/// later month's run ended with exit code 1 on "not a number in `weight`", the value quoted.
+///
 /// When rows were dropped with a warning and none was kept, the file gives nothing: that is
 /// an error on the file (exit code 4, "a file was left out"), not a column of warnings a
 /// scheduled run's log reports as a clean run with warnings. A whole export in a form no row
@@ -173,11 +179,14 @@ fn parse_rows<T>(
     table: &Table,
     ctx: &FileCtx,
     opts: &CsvOptions,
+    w: &Window,
     diags: &mut Vec<Diagnostic>,
     mut f: impl FnMut(&Cells<'_>, &mut Vec<Diagnostic>) -> Option<T>,
 ) -> Vec<Parsed<T>> {
-    let repeats = table.repeated_rows();
-    report_repeats(table, &repeats, ctx, diags);
+    let mut repeats = table.repeated_rows();
+    let consent_withdrawn = w.withdrew.filter(|_| !w.follow_up_weigh_ins);
+    // Lines of the rows dated after the withdrawal of consent, not read.
+    let mut after_consent: Vec<u64> = Vec::new();
     let mut out = Vec::new();
     // Rows dropped with a warning: their number and the first one's warning.
     let mut dropped = 0usize;
@@ -193,7 +202,16 @@ fn parse_rows<T>(
             opts,
         };
         let before = diags.len();
-        let kept = cells.when("date", diags).and_then(|when| {
+        let when = cells.when("date", diags);
+        if let (Some(x), Some(wn)) = (consent_withdrawn, when)
+            && wn.date > x
+        {
+            diags.truncate(before);
+            ctx.uncount_row();
+            after_consent.push(row.line);
+            continue;
+        }
+        let kept = when.and_then(|when| {
             if table.is_unfilled(row) {
                 table.unfilled_row(row);
                 return None;
@@ -217,6 +235,20 @@ fn parse_rows<T>(
                 }
             }
         }
+    }
+    // A repeat of a row after the withdrawal is one too (identical, date included).
+    for (row, repeat) in table.rows.iter().zip(repeats.iter_mut()) {
+        if repeat.is_some_and(|orig| after_consent.contains(&orig)) {
+            *repeat = None;
+            ctx.uncount_row();
+            after_consent.push(row.line);
+        }
+    }
+    report_repeats(table, &repeats, ctx, diags);
+    if let (Some(x), Some(&first)) = (consent_withdrawn, after_consent.iter().min())
+        && w.reported_from.is_none_or(|from| x >= from)
+    {
+        diags.push(after_withdrawn_consent(x, first, table.column("date"), ctx));
     }
     if out.is_empty()
         && let Some(first) = first_dropped
@@ -907,7 +939,7 @@ pub fn parse_weights(
     let mut declared_rows = 0usize;
     // Whether the file's note already quotes its first weight in stones and pounds.
     let mut stones_noted = false;
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         const DROP: &str = "the row is dropped";
         // A spreadsheet's `Average` (or `Max`…) row with a date, marked in a column of its own:
         // no weigh-in.
@@ -1547,7 +1579,7 @@ pub fn parse_intake(
     let mut declared_rows = 0usize;
     // Whether any cell wrote its energy unit (then an `Energy` header needs none).
     let mut units_in_cells = false;
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         // A day's `Average` (or `Max`…) row beside its meals is no meal (its `Total` row is
         // checked against them below).
         if let Some(label) = c.table.row_label(c.row, &SUMMARY_LABELS)
@@ -2219,7 +2251,7 @@ pub fn parse_activity(
             "durations with one colon read as minutes:seconds, as `{raw}` shows (as hours:minutes it would be longer than an activity can last)"
         )
     });
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         let activity = c.required_text("activity", d)?;
         // A log's `Total` row is no activity: with a `met` value it was added to the day's
         // activities as one more.
@@ -2514,7 +2546,7 @@ pub fn parse_sessions(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<SessionRecord>> {
     let table = read_table(text, &SESSIONS, opts, ctx, diags)?;
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         let session = c.required_text("session", d)?;
         let a = c.required_text("attended", d)?;
         let attended = match a.to_lowercase().as_str() {
@@ -2724,7 +2756,7 @@ pub fn parse_labs(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<LabResult>> {
     let table = read_table(text, &LABS, opts, ctx, diags)?;
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         let name = c.required_text("test", d)?;
         let Some(kind) = lab_name(&name) else {
             d.push(

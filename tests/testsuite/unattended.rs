@@ -862,7 +862,11 @@ fn rows_synced_after_withdrawn_consent_warn_in_the_month_of_leaving_only() {
         ),
     )
     .unwrap();
-    let weights = std::fs::read_to_string(folder.join("weights.csv")).unwrap();
+    // The scale also synced a weigh-in that does not read, and one twice.
+    let mut weights = std::fs::read_to_string(folder.join("weights.csv")).unwrap();
+    let last = weights.lines().last().unwrap().to_string();
+    weights.push_str(&format!("2026-09-29,7x1.5,lb,home-scale\n{last}\n"));
+    std::fs::write(folder.join("weights.csv"), &weights).unwrap();
     let after = weights
         .lines()
         .skip(1)
@@ -889,7 +893,8 @@ fn rows_synced_after_withdrawn_consent_warn_in_the_month_of_leaving_only() {
         said.iter().all(|l| l.starts_with("warning,SG-003,")),
         "{said:#?}"
     );
-    // Nothing of the rows after it: neither their dates nor their number.
+    // Nothing of the rows after it: neither their dates nor their number nor their values.
+    assert!(!dq.contains("7x1.5") && !dq.contains("duplicate"), "{dq}");
     assert!(
         !dq.contains("2026-06-16") && !dq.contains("rows are dated after"),
         "{dq}"

@@ -640,27 +640,40 @@ fn unit_check_uses_neighbours_by_date_not_by_file_order() {
 
 #[test]
 fn dates_outside_the_window_are_dropped() {
-    let mut diags = Vec::new();
-    let w = Window {
-        enrolled: Some(d(2026, 4, 1)),
-        withdrew: Some(d(2026, 8, 31)),
-        follow_up_weigh_ins: false,
-        as_of: d(2026, 12, 1),
-        reported_from: None,
-        height_cm: None,
-        high_bmi_checked: false,
-        low_bmi_checked: false,
+    let text = "date,weight,unit\n2026-03-31,72,kg\n2026-04-01,72,kg\n2026-09-01,71,kg\n2027-01-01,70,kg\n";
+    let read_in = |withdrew: Option<NaiveDate>| {
+        let mut diags = Vec::new();
+        let w = Window {
+            withdrew,
+            ..window()
+        };
+        let out = parse_weights(
+            text,
+            &CsvOptions::default(),
+            &ctx("weights.csv"),
+            &w,
+            &mut diags,
+        )
+        .unwrap();
+        diags.sort_by_key(|d| d.line);
+        (out, diags)
     };
-    let out = parse_weights(
-        "date,weight,unit\n2026-03-31,72,kg\n2026-04-01,72,kg\n2026-09-01,71,kg\n2027-01-01,70,kg\n",
-        &CsvOptions::default(),
-        &ctx("weights.csv"),
-        &w,
-        &mut diags,
-    )
-    .unwrap();
+    let (out, diags) = read_in(None);
+    assert_eq!(out.len(), 2);
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("before enrolment"),
+        "{}",
+        diags[0]
+    );
+    assert!(diags[1].message.contains("in the future"), "{}", diags[1]);
+    assert_eq!(diags[1].line, Some(5));
+    assert_eq!(diags[1].column, Some(1));
+    // After withdrawn consent, the rows after it, the one in the future included, are one
+    // warning at the first of them, which says nothing of their dates.
+    let (out, diags) = read_in(Some(d(2026, 8, 31)));
     assert_eq!(out.len(), 1);
-    assert_eq!(diags.len(), 3);
+    assert_eq!(diags.len(), 2, "{diags:#?}");
     assert!(
         diags[0].message.contains("before enrolment"),
         "{}",
@@ -673,9 +686,7 @@ fn dates_outside_the_window_are_dropped() {
         "{}",
         diags[1]
     );
-    assert!(diags[2].message.contains("in the future"), "{}", diags[2]);
-    assert_eq!(diags[2].line, Some(5));
-    assert_eq!(diags[2].column, Some(1));
+    assert_eq!((diags[1].line, diags[1].column), (Some(4), Some(1)));
 }
 
 /// Every withdrawal was read as withdrawn consent: a weigh-in after `withdrew` was dropped even
@@ -735,11 +746,13 @@ fn weigh_ins_after_withdrawal_are_read_only_for_someone_who_stopped_the_program(
 /// also in the participant's own report, and `weights_rows_in_file` counted those rows. Now
 /// only `check` and a run whose period does not begin after the withdrawal warn, with
 /// neither the number nor the dates of the rows, saying what to do; the rows are counted
-/// nowhere. Someone who stopped the program keeps their warning's figures (their data may be
-/// used), under the same once-only rule.
+/// nowhere, and a row after it whose value does not read, or that repeats another, is not read
+/// or warned about either. Someone who stopped the program keeps their warning's figures (their
+/// data may be used), under the same once-only rule.
 #[test]
 fn rows_after_withdrawn_consent_are_warned_about_once_and_never_shown() {
-    let text = "date,weight,unit\n2026-08-30,80,kg\n2026-09-14,79.1,kg\n2026-08-31,79.8,kg\n2026-10-02,78.4,kg\n";
+    // After the withdrawal: a weigh-in, one whose weight does not read, and a row repeated.
+    let text = "date,weight,unit\n2026-08-30,80,kg\n2026-09-14,79.1,kg\n2026-08-31,79.8,kg\n2026-10-02,78.4,kg\n2026-10-03,7x8.1,kg\n2026-10-02,78.4,kg\n";
     let withdrawn = Window {
         withdrew: Some(d(2026, 8, 31)),
         ..window()
@@ -792,9 +805,9 @@ fn rows_after_withdrawn_consent_are_warned_about_once_and_never_shown() {
                 .unwrap()
                 .contains("a scale or app that syncs into it")
         );
-        // Nothing of the rows: not their dates, not their number.
+        // Nothing of the rows: not their dates, not their number, not their values.
         let all = e.to_string();
-        for hidden in ["2026-09-14", "2026-10-02", "2 rows"] {
+        for hidden in ["2026-09-14", "2026-10-02", "4 rows", "7x8.1"] {
             assert!(!all.contains(hidden), "{hidden} in {all}");
         }
         assert!(is_after_withdrawn_consent(e));
