@@ -26,9 +26,11 @@
 //!    hides at least one more cell, so the loop ends.
 //!
 //! The complement is the shown member with the lowest *priority* (callers rank cells so that
-//! key denominators such as "started" survive), then the smallest value ("next-smallest cell",
-//! the usual complementary-suppression rule; common practice), preferring non-zero cells (a
-//! hidden zero protects little). A shown 0 is taken only where no non-zero cell is left to
+//! key denominators such as "started" survive), then the first registered, preferring non-zero
+//! cells (a hidden zero protects little). Not the smallest value, the usual "next-smallest
+//! cell" rule (common practice): the algorithm is published, and a complement known to be the
+//! smallest candidate is known to be no larger than any candidate left shown, a bound that
+//! narrowed the small cell beside it ([`CellTable::rank`]). A shown 0 is taken only where no non-zero cell is left to
 //! take: a guarded zero found from shown zeros alone (its program's count 0, every other
 //! section's 0) can only be covered by one of them.
 
@@ -252,13 +254,16 @@ impl CellTable {
     }
 
     /// Order in which shown cells are taken as complements (least first): a kept cell last,
-    /// then a headline cell while `protect` is set, then non-zero before zero, then cost, value
-    /// and id.
-    fn rank(&self, c: CellId) -> (bool, bool, bool, u8, u64, CellId) {
+    /// then a headline cell while `protect` is set, then non-zero before zero, then cost and
+    /// id. Not the value: a complement taken as the smallest candidate is known to be no larger
+    /// than any candidate left shown, and that bound narrowed the small cell beside it
+    /// (`[10, 11, 11 | 32]`: hidden 10 and 11, the other 11 shown, so the two hidden cells
+    /// were 10 + 11 or 11 + 10, and the small one 10 or 11).
+    fn rank(&self, c: CellId) -> (bool, bool, bool, u8, CellId) {
         let cell = &self.cells[c];
         let cost = self.cost(c);
         let headline = self.protect && self.headline_rank.is_some_and(|h| cost >= h);
-        (self.kept(c), headline, cell.value == 0, cost, cell.value, c)
+        (self.kept(c), headline, cell.value == 0, cost, c)
     }
 
     /// Recomputes each cell's cost for `protect`. A relation whose members other than two
@@ -1205,12 +1210,7 @@ impl CellTable {
         let rank = |c: CellId| self.rank(c);
         // Whether the candidate is kept, (highest rank hidden, cells hidden), the candidate's
         // own rank, the candidate: a kept cell only when every candidate is.
-        type Choice = (
-            bool,
-            (u8, usize),
-            (bool, bool, bool, u8, u64, CellId),
-            CellId,
-        );
+        type Choice = (bool, (u8, usize), (bool, bool, bool, u8, CellId), CellId);
         let mut best: Option<Choice> = None;
         for c in candidates {
             let key = (self.kept(c), self.cascade(c), rank(c), c);
@@ -1257,9 +1257,9 @@ impl CellTable {
         (top, count)
     }
 
-    /// The shown member of the given relations to hide next: lowest priority, then smallest
-    /// value, preferring non-zero values; ties go to the lowest id so runs are reproducible
-    /// ([`CellTable::rank`]: while `protect` is set, headline counts last and by cost).
+    /// The shown member of the given relations to hide next: lowest priority, preferring
+    /// non-zero values, then the lowest id, never the value ([`CellTable::rank`]: while
+    /// `protect` is set, headline counts last and by cost).
     fn best_complement(&self, relations: &[usize]) -> Option<CellId> {
         relations
             .iter()
@@ -1269,7 +1269,7 @@ impl CellTable {
     }
 
     /// The complement for a determined cell `u` ([`CellTable::apply`]): the cell of lowest
-    /// complement rank (then nearest `u`, then smallest) among the shown non-zero cells of the
+    /// complement rank (then nearest `u`, then first registered) among the shown non-zero cells of the
     /// relations reached from `u` through hidden cells, whose hiding leaves `u` undetermined;
     /// when no cell ranked below [`CellTable::complement_near`]'s choice does, that choice.
     /// Searching only the relations next to `u` had hidden, for a site's "reached 10 % loss"
@@ -1288,7 +1288,7 @@ impl CellTable {
         let mut seen_rel = vec![false; self.relations.len()];
         let mut frontier = vec![u];
         seen_cells[u] = true;
-        let mut candidates: Vec<(u8, usize, u64, CellId)> = Vec::new();
+        let mut candidates: Vec<(u8, usize, CellId)> = Vec::new();
         let mut level = 0;
         while !frontier.is_empty() {
             let rels: Vec<usize> = (0..self.relations.len())
@@ -1308,7 +1308,7 @@ impl CellTable {
                     if c.suppressed {
                         next.push(m);
                     } else if c.value != 0 && self.cost(m) < bar && !self.kept(m) {
-                        candidates.push((self.cost(m), level, c.value, m));
+                        candidates.push((self.cost(m), level, m));
                     }
                 }
             }
@@ -1317,7 +1317,7 @@ impl CellTable {
         }
         candidates.sort_unstable();
         let mut trial = suppressed.to_vec();
-        for &(_, _, _, c) in candidates.iter().take(64) {
+        for &(_, _, c) in candidates.iter().take(64) {
             let hidden = trial.iter().filter(|&&h| h).count() as f64 + 1.0;
             if !self.spend(self.relations.len() as f64 * hidden * hidden) {
                 return Some(near);
@@ -1574,9 +1574,18 @@ mod tests {
     }
 
     /// One section's plateau counts: enrolled = with a verdict + too little data, with a
-    /// verdict = on a plateau + not, each share given its group.
+    /// verdict = on a plateau + not, each share given its group; each cell of the rank the
+    /// group report gives it (`Kind::priority`: enrolled 3, with a verdict 2, on a plateau or
+    /// not 1, too little data 0).
     fn plateau_section(t: &mut CellTable, counts: [u64; 5]) -> [CellId; 5] {
-        let [enrolled, verdict, insufficient, yes, no] = counts.map(|v| t.add_cell(v, 1));
+        let [enrolled, verdict, insufficient, yes, no] = [
+            (counts[0], 3),
+            (counts[1], 2),
+            (counts[2], 0),
+            (counts[3], 1),
+            (counts[4], 1),
+        ]
+        .map(|(v, p)| t.add_cell(v, p));
         t.add_relation(enrolled, vec![verdict, insufficient]);
         t.add_relation(verdict, vec![yes, no]);
         for c in [verdict, insufficient] {
@@ -1903,6 +1912,34 @@ mod tests {
         let (small, other) = (t.seen[parts[0]], t.seen[parts[1]]);
         assert!(small.0 >= 1.0 && small.1 <= 10.0, "{small:?}");
         assert!(other.0 >= 3.0 && other.1 <= 12.0, "{other:?}");
+    }
+
+    /// A reader who knows that the complement is the smallest shown candidate knows it is no
+    /// larger than any candidate left shown. [10, 11, 11 | 32], min 11: the 10 is hidden, the
+    /// first 11 is its complement, the second stays shown; the two hidden cells hold 21, and a
+    /// complement of 11 or less beside a small cell of 10 or less leaves only 10 + 11 or
+    /// 11 + 10: the small cell was 10 or 11. The complement's choice must rest on nothing the
+    /// reader cannot see.
+    #[test]
+    fn the_choice_of_complement_does_not_tell_a_reader_the_hidden_values() {
+        for parts in [
+            &[10, 11, 11][..],
+            &[11, 10, 11],
+            &[10, 11, 12, 11],
+            &[9, 11, 12, 11],
+        ] {
+            let parts = parts.to_vec();
+            let seen = reader_values(&parts, 11);
+            for (c, &v) in parts.iter().enumerate() {
+                if (1..11).contains(&v) {
+                    assert!(
+                        seen[c].len() >= 3,
+                        "{parts:?}: cell {c} ({v}) narrowed to {:?}",
+                        seen[c]
+                    );
+                }
+            }
+        }
     }
 
     #[test]
