@@ -807,12 +807,20 @@ impl CellTable {
         }
     }
 
-    /// The bounds a hidden cell's variable has in the range programs.
+    /// The bounds a hidden cell's variable has in the range programs. For the narrowness
+    /// check, a hidden cell that is not 0 is at least 1: zeros are shown, and the complements
+    /// are non-zero cells wherever one is left, so a reader takes a hidden cell for 1 or more.
+    /// Two small cells of one row, hidden beside its shown total and its other shown cell,
+    /// [1, 21, 1 | 23], held 2 together and printed "0–2" each, but were 1 each. (The printed
+    /// ranges keep 0: a hidden zero is possible, and a looser range tells nothing.)
     fn box_of(&self, c: CellId, min_cell_size: u32) -> (f64, f64) {
+        let nonzero = !self.printing && self.cells[c].value != 0 && !self.cells[c].phantom;
         if let Some((lo, hi)) = self.cells[c].band {
-            (lo as f64, hi as f64)
+            ((lo.max(u64::from(nonzero))) as f64, hi as f64)
         } else if !self.printing && self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
             (1.0, f64::from(min_cell_size) - 1.0)
+        } else if nonzero {
+            (1.0, f64::INFINITY)
         } else {
             (0.0, f64::INFINITY)
         }
@@ -1940,6 +1948,125 @@ mod tests {
                 }
             }
         }
+    }
+
+    /// A 2 × 3 table with its row, column and grand totals (cells 0–5 the inner cells by row,
+    /// 6–7 the rows, 8–10 the columns, 11 the whole), every cell of one rank.
+    fn cross(v: &[u64]) -> CellTable {
+        let mut t = CellTable::new();
+        let inner: Vec<CellId> = v.iter().map(|&x| t.add_cell(x, 0)).collect();
+        let rows: Vec<CellId> = (0..2)
+            .map(|r| t.add_cell(v[3 * r..3 * r + 3].iter().sum(), 1))
+            .collect();
+        let cols: Vec<CellId> = (0..3).map(|c| t.add_cell(v[c] + v[c + 3], 1)).collect();
+        let all = t.add_cell(v.iter().sum(), 2);
+        for r in 0..2 {
+            t.add_relation(rows[r], inner[3 * r..3 * r + 3].to_vec());
+        }
+        for c in 0..3 {
+            t.add_relation(cols[c], vec![inner[c], inner[c + 3]]);
+        }
+        t.add_relation(all, rows);
+        t.add_relation(all, cols);
+        t
+    }
+
+    /// What a reader who knows the algorithm can tell of each inner cell of [`cross`]: every
+    /// assignment of the hidden cells (0 … the whole each) that meets the relations is run
+    /// through the suppression and kept when it prints what the truth printed.
+    fn cross_reader(v: &[u64], min: u32) -> Vec<std::collections::BTreeSet<u64>> {
+        let printed = |values: &[u64]| {
+            let mut t = cross(values);
+            let ranges = t.apply_with_ranges(min);
+            let hidden: Vec<bool> = (0..t.len()).map(|c| t.is_suppressed(c)).collect();
+            (hidden, ranges)
+        };
+        let truth = printed(v);
+        let full = cross(v);
+        let shown: Vec<Option<u64>> = (0..full.len())
+            .map(|c| (!truth.0[c]).then(|| full.value(c)))
+            .collect();
+        let whole = full.value(full.len() - 1);
+        let mut out = vec![std::collections::BTreeSet::new(); v.len()];
+        let mut x: Vec<Option<u64>> = shown.clone();
+        fn go(
+            k: usize,
+            x: &mut Vec<Option<u64>>,
+            shown: &[Option<u64>],
+            whole: u64,
+            rels: &[Relation],
+            f: &mut dyn FnMut(&[u64]),
+        ) {
+            // Every relation whose members are all known must hold.
+            for r in rels {
+                let vals: Option<Vec<u64>> = r.members().map(|m| x[m]).collect();
+                if let Some(vals) = vals
+                    && vals[0] != vals[1..].iter().sum::<u64>()
+                {
+                    return;
+                }
+            }
+            if k == x.len() {
+                let vals: Vec<u64> = x.iter().map(|v| v.expect("assigned")).collect();
+                f(&vals);
+                return;
+            }
+            if shown[k].is_some() {
+                return go(k + 1, x, shown, whole, rels, f);
+            }
+            // No part exceeds a shown total it is part of.
+            let cap = rels
+                .iter()
+                .filter(|r| r.parts.contains(&k))
+                .filter_map(|r| shown[r.total])
+                .min()
+                .unwrap_or(whole);
+            for val in 0..=cap {
+                x[k] = Some(val);
+                go(k + 1, x, shown, whole, rels, f);
+            }
+            x[k] = None;
+        }
+        let rels = full.relations().to_vec();
+        go(0, &mut x, &shown, whole, &rels, &mut |vals| {
+            if printed(&vals[..6]) == truth {
+                for (c, &val) in vals[..6].iter().enumerate() {
+                    out[c].insert(val);
+                }
+            }
+        });
+        out
+    }
+
+    /// Small cross tables (random inner cells 0 … 24, min 11) read by the algorithm-aware
+    /// reader: no small inner cell is left with fewer than three values.
+    #[test]
+    fn an_algorithm_aware_reader_of_cross_tables_narrows_no_small_cell() {
+        let mut seed = 0x2545_f491_4f6c_dd1du64;
+        let mut next = || {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            seed
+        };
+        let mut found = Vec::new();
+        // The first: two small cells of one row hidden beside its shown total and other cell
+        // ([1, 21, 1 | 23]) held 2 together and were printed "0–2" each; a reader who knows
+        // that zeros are shown took them for 1 each.
+        let mut tables = vec![vec![1, 21, 1, 9, 11, 18]];
+        tables.extend((0..12).map(|_| (0..6).map(|_| next() % 25).collect::<Vec<u64>>()));
+        for v in tables {
+            if !v.iter().any(|x| (1..11).contains(x)) {
+                continue;
+            }
+            let seen = cross_reader(&v, 11);
+            for (c, &val) in v.iter().enumerate() {
+                if (1..11).contains(&val) && seen[c].len() < 3 {
+                    found.push(format!("{v:?}: cell {c} ({val}) narrowed to {:?}", seen[c]));
+                }
+            }
+        }
+        assert!(found.is_empty(), "{found:#?}");
     }
 
     #[test]
