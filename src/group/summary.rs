@@ -1600,11 +1600,10 @@ pub(super) fn build(
             audit_notes.push(AuditNote {
                 section: draft.label.clone(),
                 figure: Line::Week(w).name(),
-                rule: format!(
-                    "Not shown, because with the other sections' means and the whole \
-                     program's it could give how many people the week counts where a section \
-                     shows that number only as a range, and so how many stopped"
-                ),
+                rule: "Not shown, because with the other sections' means and the whole \
+                       program's it could give how many people the week counts where a section \
+                       shows that number only as a range, and so how many stopped"
+                    .into(),
             });
         }
     }
