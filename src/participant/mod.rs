@@ -870,7 +870,8 @@ pub fn load_opened(
     macro_rules! csv_file {
         ($spec:expr, $parse:path) => {{
             let name = input_name(listing.as_deref(), $spec.name);
-            let ctx = FileCtx::new(id, rel(&name));
+            let ctx = FileCtx::new(id, rel(&name))
+                .with_consent_withdrawn(window.withdrew.filter(|_| !window.follow_up_weigh_ins));
             note_case(&ctx, &name, $spec.name);
             let first_diag = diags.len();
             let (rows, count) = match read_input(

@@ -49,6 +49,9 @@ pub struct FileCtx {
     rows_in_file: Cell<usize>,
     /// Rows the file's parser kept at its end, when it set them (see [`FileCtx::set_rows_used`]).
     rows_used: Cell<Option<usize>>,
+    /// The day the participant withdrew consent to the use of their data, when they did
+    /// ([`FileCtx::with_consent_withdrawn`]): rows dated after it are not read.
+    consent_withdrawn: Option<NaiveDate>,
 }
 
 impl FileCtx {
@@ -60,7 +63,26 @@ impl FileCtx {
             notes: RefCell::new(Vec::new()),
             rows_in_file: Cell::new(0),
             rows_used: Cell::new(None),
+            consent_withdrawn: None,
         }
+    }
+
+    /// This context for the file of someone who withdrew consent on `withdrew`.
+    pub fn with_consent_withdrawn(mut self, withdrew: Option<NaiveDate>) -> Self {
+        self.consent_withdrawn = withdrew;
+        self
+    }
+
+    /// Whether a row the reader cannot take as a row (its shape is wrong) is dated after a
+    /// withdrawal of consent: one of its cells reads as a date ([`parse_when`]) after it. Such a
+    /// row is not read at all, as the parsers skip well-shaped rows after it: a warning about
+    /// it would quote the person's data from after they withdrew (their weight, in
+    /// data-quality.csv and the log), and would come back every month.
+    fn after_consent(&self, rec: &csv::StringRecord, opts: &CsvOptions) -> bool {
+        self.consent_withdrawn.is_some_and(|x| {
+            rec.iter()
+                .any(|f| parse_when(f, opts).is_some_and(|w| w.date > x))
+        })
     }
     /// Counts one data row of the file (kept or dropped).
     pub fn count_row(&self) {
@@ -1881,6 +1903,10 @@ fn read_records(
             let mut rows = table.summary_rows.borrow_mut();
             rows.0 += 1;
             rows.1.get_or_insert((line, shorten(f, 40)));
+            continue;
+        }
+        // A row of the wrong shape dated after a withdrawal of consent: not read, not counted.
+        if !fits && ctx.after_consent(&rec, opts) {
             continue;
         }
         // The field a delimiter inside a value split the row at: a text split with a space

@@ -862,10 +862,13 @@ fn rows_synced_after_withdrawn_consent_warn_in_the_month_of_leaving_only() {
         ),
     )
     .unwrap();
-    // The scale also synced a weigh-in that does not read, and one twice.
+    // The scale also synced a weigh-in that does not read, one twice, and a row of the wrong
+    // shape (a field too many), whose warning quoted the row, weight included, every month.
     let mut weights = std::fs::read_to_string(folder.join("weights.csv")).unwrap();
     let last = weights.lines().last().unwrap().to_string();
-    weights.push_str(&format!("2026-09-29,7x1.5,lb,home-scale\n{last}\n"));
+    weights.push_str(&format!(
+        "2026-09-29,7x1.5,lb,home-scale\n{last}\n2026-09-30,161.37,lb,home-scale,synced\n"
+    ));
     std::fs::write(folder.join("weights.csv"), &weights).unwrap();
     let after = weights
         .lines()
@@ -894,7 +897,10 @@ fn rows_synced_after_withdrawn_consent_warn_in_the_month_of_leaving_only() {
         "{said:#?}"
     );
     // Nothing of the rows after it: neither their dates nor their number nor their values.
-    assert!(!dq.contains("7x1.5") && !dq.contains("duplicate"), "{dq}");
+    assert!(
+        !dq.contains("7x1.5") && !dq.contains("duplicate") && !dq.contains("161.37"),
+        "{dq}"
+    );
     assert!(
         !dq.contains("2026-06-16") && !dq.contains("rows are dated after"),
         "{dq}"
