@@ -215,6 +215,10 @@ pub struct Table {
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
     /// the file's note.
     recognised: RefCell<std::collections::BTreeSet<std::borrow::Cow<'static, str>>>,
+    /// Rows the reader dropped for their shape (a field too many or too few, a field over the
+    /// size limit, a row the CSV reader could not read), each with its warning: how many, and
+    /// the first one's warning. They never reach [`Table::rows`].
+    pub dropped: (usize, Option<Diagnostic>),
 }
 
 impl Table {
@@ -378,6 +382,7 @@ impl Table {
             summary_rows: RefCell::new((0, None)),
             unfilled_rows: Cell::new((0, 0)),
             recognised: RefCell::default(),
+            dropped: (0, None),
         }
     }
 
@@ -2054,6 +2059,7 @@ fn read_records(
             column_list(spec)
         ));
     }
+    table.dropped = (row_diags.len(), row_diags.first().cloned());
     diags.extend(row_diags);
     let rows = |n: usize| {
         if n == 1 {
