@@ -604,6 +604,30 @@ pub fn read_table(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Table> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // Byte-order marks at the start of lines: exports joined together (`cat a.csv b.csv`, or a
+    // UTF-16 file appended to another), each saved with its own mark. Invisible, the mark made
+    // the second export's header "the header of another export" (the file refused) and a row's
+    // date unreadable; it is not read, with a note.
+    let unmarked;
+    let text = match line_start_marks(text) {
+        Some((count, first)) => {
+            unmarked = text.replace("\n\u{feff}", "\n").replace("\r\u{feff}", "\r");
+            ctx.note(if count == 1 {
+                format!(
+                    "a byte-order mark (U+FEFF) at the start of line {first} is not read: files \
+                     joined together, each saved with its own mark"
+                )
+            } else {
+                format!(
+                    "byte-order marks (U+FEFF) at the start of {} lines (the first on line \
+                     {first}) are not read: files joined together, each saved with its own mark",
+                    crate::diag::thousands(count)
+                )
+            });
+            unmarked.as_str()
+        }
+        None => text,
+    };
     // Zero bytes at the end: what a save or a copy cut off by a crash or a power cut leaves
     // (the file's length was kept, its last blocks never written). They were read as a row
     // of one long field, "check for a quote that is never closed", and the rows that were
@@ -2289,6 +2313,21 @@ fn overlong_field(text: &str, delimiter: u8) -> Option<OverlongField<'_>> {
 
 /// The 1-based line on which byte `at` of `b` lies, lines ending with `\n`, `\r\n` or a lone
 /// `\r` as the reader ends records.
+/// Lines after the first that start with a byte-order mark (U+FEFF): how many, and the first
+/// one's line; `None` when there are none.
+fn line_start_marks(text: &str) -> Option<(usize, u64)> {
+    let mut count = 0usize;
+    let mut first = None;
+    let b = text.as_bytes();
+    for (i, _) in text.match_indices('\u{feff}') {
+        if i > 0 && matches!(b[i - 1], b'\n' | b'\r') {
+            count += 1;
+            first.get_or_insert_with(|| line_at(b, i));
+        }
+    }
+    first.map(|f| (count, f))
+}
+
 fn line_at(b: &[u8], at: usize) -> u64 {
     1 + b[..at]
         .iter()

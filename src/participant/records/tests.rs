@@ -200,6 +200,36 @@ fn a_file_whose_rows_all_have_the_wrong_number_of_fields_is_an_error() {
     only_warnings(&diags);
 }
 
+/// Exports joined together, each saved with a byte-order mark (`cat a.csv b.csv`; Excel's
+/// "CSV UTF-8" writes one): the second export's header, behind its invisible mark, was "the
+/// header of another export" and the whole file was refused; a row behind one lost its date.
+/// A mark at the start of a line is not read, with a note.
+#[test]
+fn byte_order_marks_of_joined_exports_are_not_read() {
+    let header = "date,weight,unit";
+    let text = format!(
+        "\u{feff}{header}\r\n2026-04-10,71.1,kg\r\n\u{feff}{header}\r\n2026-04-11,70.9,kg\r\n\u{feff}2026-04-12,70.8,kg\r\n"
+    );
+    let mut diags = Vec::new();
+    let c = ctx("weights.csv");
+    let w =
+        parse_weights(&text, &CsvOptions::default(), &c, &window(), &mut diags).expect("usable");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(
+        w.iter().map(|x| x.date).collect::<Vec<_>>(),
+        [d(2026, 4, 10), d(2026, 4, 11), d(2026, 4, 12)]
+    );
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.contains(
+            &"byte-order marks (U+FEFF) at the start of 2 lines (the first on line 3) are not \
+              read: files joined together, each saved with its own mark"
+                .to_string()
+        ),
+        "{notes:?}"
+    );
+}
+
 /// A file none of whose rows reads gives nothing: an error on the file (exit code 4), besides
 /// each row's warning; one row read is enough for warnings only.
 #[test]
