@@ -489,11 +489,13 @@ pub fn is_folder_error(d: &Diagnostic) -> bool {
         && d.file == PARTICIPANTS_DIR
 }
 
-/// Shows control characters in a name as escapes so a message cannot be garbled by them.
+/// Shows control characters in a name as escapes so a message cannot be garbled by them, and
+/// characters a name shows as nothing (a zero-width space, a direction mark: `weights\u{200b}.csv`
+/// printed as `weights.csv`) so that it does not look like another.
 fn printable(name: &str) -> String {
     name.chars()
         .flat_map(|c| {
-            if c.is_control() {
+            if c.is_control() || crate::text::is_default_ignorable(c) {
                 c.escape_default().collect::<Vec<_>>()
             } else {
                 vec![c]
@@ -654,6 +656,15 @@ fn note_case(ctx: &FileCtx, name: &str, ours: &str) {
     }
 }
 
+/// The letters a file name starts with, compared as a reader sees them (case, width and
+/// invisible characters aside): `weights` of `weights.csv`, `Weights (1).xlsx` and `weights`.
+fn name_stem(name: &str) -> String {
+    crate::text::fold_for_comparison(name)
+        .chars()
+        .take_while(|c| c.is_alphabetic())
+        .collect()
+}
+
 /// Files a participant folder may hold.
 const KNOWN_FILES: [&str; 6] = [
     PROFILE_FILE,
@@ -756,35 +767,62 @@ pub fn load_opened(
             .iter()
             .map(|k| input_name(Some(&names), k))
             .collect();
+        // The inputs the folder does not hold, under their names or in other case.
+        let absent: Vec<&str> = KNOWN_FILES
+            .iter()
+            .zip(&read_as)
+            .filter(|(_, r)| !names.contains(r))
+            .map(|(k, _)| *k)
+            .collect();
         let mut stray = 0usize;
         for n in names {
+            if n.starts_with('.') || KNOWN_FILES.contains(&n.as_str()) || read_as.contains(&n) {
+                continue;
+            }
             let lower = n.to_lowercase();
             let input_like = [".csv", ".yaml", ".yml"].iter().any(|x| lower.ends_with(x));
-            if input_like
-                && !n.starts_with('.')
-                && !KNOWN_FILES.contains(&n.as_str())
-                && !read_as.contains(&n)
-            {
-                stray += 1;
-                if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
-                    continue;
-                }
-                let hint = if lower == "profile.yml" || lower == "profile.yaml" {
-                    "rename it to `profile.yaml` (lowercase, .yaml)".to_string()
-                } else {
-                    format!(
-                        "the files read are {}; check the spelling",
-                        KNOWN_FILES.join(", ")
-                    )
-                };
-                diags.push(
-                    FileCtx::new(id, rel(&n))
-                        .warning(format!(
-                            "`{n}` is not an input file the tool reads; it is ignored"
-                        ))
-                        .hint(hint),
-                );
+            // A name that starts as the name of an input the folder lacks is most likely that
+            // input saved under a name the tool does not read: `weights.csv.txt` (a system that
+            // hides extensions), `Weights.xlsx`, `weights.tsv`, `weights`, `weights.csv ` (a
+            // space at the end), `.сsv` with a Cyrillic `с`. Those were passed over without a
+            // word, and the participant was reported without weigh-ins, "nothing to report".
+            let meant = absent
+                .iter()
+                .copied()
+                .find(|k| name_stem(&n) == name_stem(k));
+            if !input_like && meant.is_none() {
+                continue;
             }
+            stray += 1;
+            if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
+                continue;
+            }
+            let hint = if lower == "profile.yml" || lower == "profile.yaml" {
+                "rename it to `profile.yaml` (lowercase, .yaml)".to_string()
+            } else if let Some(k) = meant {
+                format!(
+                    "this folder has no `{k}`: if this file holds it, save it as `{k}` \
+                     ({}), named exactly so",
+                    if k == PROFILE_FILE {
+                        "YAML text"
+                    } else {
+                        "CSV text: comma-, semicolon- or tab-separated"
+                    }
+                )
+            } else {
+                format!(
+                    "the files read are {}; check the spelling",
+                    KNOWN_FILES.join(", ")
+                )
+            };
+            diags.push(
+                FileCtx::new(id, rel(&printable(&n)))
+                    .warning(format!(
+                        "`{}` is not an input file the tool reads; it is ignored",
+                        printable(&n)
+                    ))
+                    .hint(hint),
+            );
         }
         if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
             diags.push(

@@ -290,6 +290,71 @@ fn links_fifos_and_directories_are_refused_naming_the_file() {
     assert_eq!(data.weights[0].weight.kg(), 80.0);
 }
 
+/// An input saved under a name that starts as its own (attack22): `weights.csv.txt` (a system
+/// that hides extensions), `Weights.xlsx`, `weights.tsv`, `weights`, `weights.csv ` with a
+/// space at its end, `.сsv` with a Cyrillic `с`, or a zero-width space in the name, was passed
+/// over without a word while the folder had no `weights.csv`: the participant was reported
+/// without weigh-ins and `check` had nothing to report. Each is now a warning saying which input
+/// the folder lacks; beside the input itself such a name (`weights-2025.xlsx`) is left alone.
+#[test]
+fn an_input_saved_under_another_name_is_named_not_passed_over() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights: &[u8] = b"date,weight,unit\n2026-04-02,80,kg\n";
+    for name in [
+        "weights.csv.txt",
+        "Weights.xlsx",
+        "weights.tsv",
+        "weights",
+        "weights.csv ",
+        "weights.\u{441}sv",
+        "weights\u{200b}.csv",
+    ] {
+        let dir = participant(
+            tmp.path(),
+            "P1",
+            &[("profile.yaml", PROFILE.as_bytes()), (name, weights)],
+        );
+        let loaded = load_participant(&p, &dir, as_of());
+        assert!(loaded.data.as_ref().unwrap().weights.is_empty());
+        assert_eq!(
+            loaded.diagnostics.len(),
+            1,
+            "{name}: {:#?}",
+            loaded.diagnostics
+        );
+        let d = &loaded.diagnostics[0];
+        assert_eq!(d.severity, Severity::Warning);
+        let shown = name.replace('\u{200b}', "\\u{200b}");
+        assert_eq!(
+            d.message,
+            format!("`{shown}` is not an input file the tool reads; it is ignored")
+        );
+        assert_eq!(
+            d.hint.as_deref(),
+            Some(
+                "this folder has no `weights.csv`: if this file holds it, save it as \
+                 `weights.csv` (CSV text: comma-, semicolon- or tab-separated), named exactly so"
+            ),
+            "{name}"
+        );
+        fs::remove_file(dir.path.join(name)).unwrap();
+    }
+    // Beside the input itself, a file of another kind named like it is no one's business.
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", PROFILE.as_bytes()),
+            ("weights.csv", weights),
+            ("weights-2025.xlsx", b"PK"),
+        ],
+    );
+    let loaded = load_participant(&p, &dir, as_of());
+    assert!(loaded.diagnostics.is_empty(), "{:#?}", loaded.diagnostics);
+    assert_eq!(loaded.data.unwrap().weights.len(), 1);
+}
+
 #[cfg(unix)]
 #[test]
 fn a_folder_swapped_for_a_link_after_listing_is_not_followed() {
