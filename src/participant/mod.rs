@@ -567,10 +567,14 @@ fn read_input(
         Ok(b) => b,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => return None,
         Err(e) => {
-            diags.push(
-                ctx.error(format!("cannot read the file ({e})"))
-                    .hint("this file is left out until it can be read; the participant is reported without it, and other participants are not affected"),
-            );
+            // Without its profile the participant is not reported at all (the hint said "the
+            // participant is reported without it" beside "participant left out").
+            let hint = if name.eq_ignore_ascii_case(PROFILE_FILE) {
+                "the participant is not reported until this file can be read; other participants are not affected"
+            } else {
+                "this file is left out until it can be read; the participant is reported without it, and other participants are not affected"
+            };
+            diags.push(ctx.error(format!("cannot read the file ({e})")).hint(hint));
             return Some(Err(()));
         }
     };

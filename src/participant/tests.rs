@@ -290,6 +290,49 @@ fn links_fifos_and_directories_are_refused_naming_the_file() {
     assert_eq!(data.weights[0].weight.kg(), 80.0);
 }
 
+/// A socket under an input's name is named for what it is (attack22: opening one fails with
+/// `ENXIO`, and the message read "No such device or address (os error 6)"); a profile that
+/// cannot be read says that the participant is not reported (it said "the participant is
+/// reported without it" beside "participant left out").
+#[cfg(unix)]
+#[test]
+fn a_socket_is_named_and_an_unreadable_profile_leaves_the_participant_out() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    let _socket = std::os::unix::net::UnixListener::bind(dir.path.join("labs.csv")).unwrap();
+    let loaded = load_participant(&p, &dir, as_of());
+    assert_eq!(loaded.diagnostics.len(), 1, "{:#?}", loaded.diagnostics);
+    let d = &loaded.diagnostics[0];
+    assert_eq!(d.file, "participants/P1/labs.csv");
+    assert_eq!(
+        d.message,
+        "cannot read the file (it is a socket, not a regular file; nothing was read from it \
+         (put the file itself here))"
+    );
+    assert!(loaded.data.is_some());
+
+    let elsewhere = tmp.path().join("profile-elsewhere.yaml");
+    fs::write(&elsewhere, PROFILE).unwrap();
+    fs::remove_file(dir.path.join("profile.yaml")).unwrap();
+    std::os::unix::fs::symlink(&elsewhere, dir.path.join("profile.yaml")).unwrap();
+    let loaded = load_participant(&p, &dir, as_of());
+    assert!(loaded.data.is_none());
+    let d = loaded
+        .diagnostics
+        .iter()
+        .find(|d| d.file == "participants/P1/profile.yaml")
+        .unwrap();
+    assert!(d.message.contains("symbolic link"), "{d}");
+    assert_eq!(
+        d.hint.as_deref(),
+        Some(
+            "the participant is not reported until this file can be read; other participants \
+             are not affected"
+        )
+    );
+}
+
 /// An input saved under a name that starts as its own (attack22): `weights.csv.txt` (a system
 /// that hides extensions), `Weights.xlsx`, `weights.tsv`, `weights`, `weights.csv ` with a
 /// space at its end, `.сsv` with a Cyrillic `с`, or a zero-width space in the name, was passed
