@@ -376,6 +376,9 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
             }
             continue;
         }
+        if is_system_entry(&name) {
+            continue;
+        }
         let rel = format!("{PARTICIPANTS_DIR}/{}", printable(&name));
         let ft = entry.file_type();
         if ft.is_symlink() {
@@ -467,6 +470,26 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
         );
     }
     (dirs, diags)
+}
+
+/// Whether `name` is an entry file systems and operating systems put in any folder, which is
+/// no participant's, as a hidden entry is not: the `__MACOSX/` a Mac's zip archive unpacks
+/// beside its files, the `lost+found/` at the root of an ext file system (a participants folder
+/// that is a mount point), Windows Explorer's `Thumbs.db` and `desktop.ini`, and a Windows
+/// drive's `$RECYCLE.BIN` and `System Volume Information` (case aside). `__MACOSX` was "a
+/// participant with no profile.yaml" and `lost+found` one to rename (exit code 4 on every run);
+/// `Thumbs.db` a file to move (exit code 1).
+fn is_system_entry(name: &str) -> bool {
+    [
+        "__MACOSX",
+        "lost+found",
+        "Thumbs.db",
+        "desktop.ini",
+        "$RECYCLE.BIN",
+        "System Volume Information",
+    ]
+    .iter()
+    .any(|n| n.eq_ignore_ascii_case(name))
 }
 
 /// Whether `id` is a name Windows reserves for a device, with or without an extension

@@ -716,6 +716,38 @@ fn a_hidden_folder_with_a_profile_is_named() {
     assert_eq!(diags.len(), 2, "{diags:#?}");
 }
 
+/// What file systems and operating systems put in any folder is no participant (attack22): a
+/// Mac's zip archive of the participant folders unpacked `__MACOSX/` beside them, which was
+/// "participant folder `__MACOSX` has no profile.yaml" (exit code 4 on every run); a participants
+/// folder that is a mount point holds `lost+found/`, which was "not a usable participant id …
+/// rename the folder"; Windows Explorer's `Thumbs.db` and `desktop.ini` were files "to move"
+/// (exit code 1).
+#[test]
+fn file_system_and_operating_system_entries_are_not_participants() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    participant(
+        tmp.path(),
+        "__MACOSX/P1",
+        &[("._profile.yaml", b"\0\x05\x16\x07")],
+    );
+    participant(tmp.path(), "lost+found", &[]);
+    let base = tmp.path().join("participants");
+    fs::write(base.join("Thumbs.db"), b"x").unwrap();
+    fs::write(base.join("desktop.ini"), b"x").unwrap();
+    let (dirs, diags) = discover(&p);
+    assert_eq!(
+        dirs.iter().map(|d| d.id.as_str()).collect::<Vec<_>>(),
+        vec!["P1"]
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    // A folder of another name is still named.
+    participant(tmp.path(), "lost_found", &[]);
+    let (dirs, _) = discover(&p);
+    assert_eq!(dirs.len(), 2);
+}
+
 /// The tidy metrics' rows in the file and rows used: a file of 7 data rows of which 4 are
 /// dropped (a duplicate, a row before enrolment, a row of the wrong shape, an unreadable
 /// weight) gives 7 and 3; blank lines, a repeated header and summary rows are no data rows.
