@@ -877,12 +877,27 @@ pub fn load_opened(
         &mut diags,
     ) {
         None => {
+            // The participant's files one folder down (`SG-002/SG-002/profile.yaml`: an archive
+            // unpacked into a folder of its own): "add profile.yaml" sent people to write one.
+            let nested = listing.as_deref().unwrap_or_default().iter().find(|n| {
+                std::fs::symlink_metadata(dir.path.join(n).join(PROFILE_FILE))
+                    .is_ok_and(|m| m.is_file())
+            });
+            let hint = match nested {
+                Some(n) => format!(
+                    "the folder `{}` inside it holds a profile.yaml: move that folder's files up \
+                     into participants/{id}/ (an archive unpacked into a folder of its own)",
+                    printable(n)
+                ),
+                None => "add profile.yaml to the folder (see “profile.yaml” in docs/GUIDE.md)"
+                    .to_string(),
+            };
             diags.push(
                 pctx.error(format!(
                     "participant folder `{id}` has no profile.yaml; the participant cannot be used"
                 ))
                 .expected("a profile.yaml with id, sex, birth_date or age, height, enrolled")
-                .hint("add profile.yaml to the folder (see “profile.yaml” in docs/GUIDE.md)"),
+                .hint(hint),
             );
             None
         }

@@ -748,6 +748,27 @@ fn file_system_and_operating_system_entries_are_not_participants() {
     assert_eq!(dirs.len(), 2);
 }
 
+/// A participant's files one folder down (an archive unpacked into a folder of its own,
+/// `P1/P1/profile.yaml`): the error's hint said "add profile.yaml to the folder" (attack22); it
+/// now names the folder that holds it.
+#[test]
+fn a_profile_one_folder_down_is_named_in_the_hint() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(tmp.path(), "P1", &[]);
+    participant(tmp.path(), "P1/P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    let loaded = load_participant(&p, &dir, as_of());
+    assert!(loaded.data.is_none());
+    assert_eq!(loaded.diagnostics.len(), 1, "{:#?}", loaded.diagnostics);
+    assert_eq!(
+        loaded.diagnostics[0].hint.as_deref(),
+        Some(
+            "the folder `P1` inside it holds a profile.yaml: move that folder's files up into \
+             participants/P1/ (an archive unpacked into a folder of its own)"
+        )
+    );
+}
+
 /// The tidy metrics' rows in the file and rows used: a file of 7 data rows of which 4 are
 /// dropped (a duplicate, a row before enrolment, a row of the wrong shape, an unreadable
 /// weight) gives 7 and 3; blank lines, a repeated header and summary rows are no data rows.
