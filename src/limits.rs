@@ -95,14 +95,21 @@ pub fn human(bytes: u64) -> String {
     }
 }
 
-/// The message for a file over its limit.
+/// The message for a file over its limit. Only a CSV file holds a history that can be split
+/// into years; a YAML file (`program.yaml`, a `profile.yaml`) over its limit is the wrong file
+/// (it read "split a very long history into the reporting years" too).
 pub fn too_large_message(size: u64, limit: u64) -> String {
     format!(
         "the file is {} ({} bytes), larger than the limit of {} for this kind of file; it was not read \
-         (check it is the right file; split a very long history into the reporting years)",
+         (check it is the right file{})",
         human(size),
         size,
-        human(limit)
+        human(limit),
+        if limit == MAX_CSV_BYTES {
+            "; split a very long history into the reporting years"
+        } else {
+            ""
+        }
     )
 }
 
@@ -412,6 +419,22 @@ pub fn check_size(path: &Path) -> Result<(), String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Only a CSV file's message says to split a history into years (attack22: a 5 MB
+    /// program.yaml was told to).
+    #[test]
+    fn only_a_csv_file_is_told_to_split_its_history() {
+        assert_eq!(
+            too_large_message(5_001_848, MAX_YAML_BYTES),
+            "the file is 4.8 MiB (5001848 bytes), larger than the limit of 1 MiB for this kind \
+             of file; it was not read (check it is the right file)"
+        );
+        assert!(
+            too_large_message(MAX_CSV_BYTES + 1, MAX_CSV_BYTES).ends_with(
+                "(check it is the right file; split a very long history into the reporting years)"
+            )
+        );
+    }
 
     #[test]
     fn limits_by_extension() {

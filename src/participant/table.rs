@@ -678,7 +678,8 @@ pub fn read_table(
             .at(f.line, Some(f.column))
             .expected(format!(
                 "fields of at most {MAX_CSV_FIELD_BYTES} bytes (a date, a number, a unit or a \
-                 short note)"
+                 short note; a longer field costs its row, one over {} the file)",
+                crate::limits::human(MAX_CSV_FIELD_READ_BYTES as u64)
             ))
             .found(format!(
                 "`{}…`",
@@ -5640,6 +5641,15 @@ mod tests {
             format!(
                 "a field of {field} bytes starts here, longer than the limit of 1 MiB for one \
                  field; the file cannot be used"
+            )
+        );
+        // Both limits, so the two numbers do not contradict each other (attack22: "longer than
+        // the limit of 1 MiB" beside "expected: fields of at most 4096 bytes").
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some(
+                "fields of at most 4096 bytes (a date, a number, a unit or a short note; a longer \
+                 field costs its row, one over 1 MiB the file)"
             )
         );
         assert_eq!(
