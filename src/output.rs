@@ -219,6 +219,28 @@ fn live_staging() -> std::sync::MutexGuard<'static, Vec<(PathBuf, PathBuf, &'sta
     LIVE_STAGING.lock().unwrap_or_else(|e| e.into_inner())
 }
 
+/// The output folders this process has put in place (a run's swap, an import's folders moved
+/// into `participants/`), added under the lock of [`LIVE_STAGING`], so that an interrupt that
+/// comes after can say so ([`abandon_staging`]): it said "an output not yet put in place leaves
+/// the previous one as it was" of an output already in place.
+static PLACED: Mutex<Vec<PathBuf>> = Mutex::new(Vec::new());
+
+fn placed(output: &Path) {
+    PLACED
+        .lock()
+        .unwrap_or_else(|e| e.into_inner())
+        .push(output.to_path_buf());
+}
+
+/// What an interrupt found ([`abandon_staging`]).
+#[derive(Debug)]
+pub struct Interrupted {
+    /// The staging folders still being written, and what became of each.
+    pub abandoned: Vec<Abandoned>,
+    /// The output folders already put in place by this process.
+    pub placed: Vec<PathBuf>,
+}
+
 /// What [`abandon_staging`] did with one staging folder.
 #[derive(Debug)]
 pub struct Abandoned {
@@ -240,9 +262,9 @@ pub struct Abandoned {
 /// Without it a run stopped by a scheduler left `.NAME.staging/` (part of the month's
 /// identified reports) beside the output folder until the next run into that folder or beside
 /// it, which with a folder per month could be weeks.
-pub fn abandon_staging() -> Vec<Abandoned> {
+pub fn abandon_staging() -> Interrupted {
     let mut live = live_staging();
-    let done = live
+    let abandoned = live
         .drain(..)
         .map(|(staging, output, marker)| {
             let removed = remove_ours(&staging, marker).map_err(|e| e.to_string());
@@ -253,8 +275,10 @@ pub fn abandon_staging() -> Vec<Abandoned> {
             }
         })
         .collect();
+    // Read under the lock kept for good: nothing is put in place any more.
+    let placed = PLACED.lock().unwrap_or_else(|e| e.into_inner()).clone();
     std::mem::forget(live);
-    done
+    Interrupted { abandoned, placed }
 }
 
 /// The staging folder of a writer other than a run's [`Staging`] (`cohortpress import fhir`
@@ -312,6 +336,11 @@ impl ImportStaging {
     pub fn finish(mut self, move_out: impl FnOnce() -> std::io::Result<()>) -> Result<(), String> {
         let mut live = live_staging();
         let moved = move_out().map_err(|e| e.to_string());
+        if moved.is_ok()
+            && let Some((_, output, _)) = live.iter().find(|(d, ..)| *d == self.dir)
+        {
+            placed(output);
+        }
         let removed = self.remove_locked(&mut live).map_err(|e| e.to_string());
         moved.and(removed)
     }
@@ -1140,6 +1169,7 @@ impl Staging {
         }
         self.committed = true;
         live.retain(|(dir, ..)| *dir != self.dir);
+        placed(&self.final_dir);
         drop(live);
         // The marker goes last, so a staging folder is recognisable as ours until it is in place.
         let marker = self.final_dir.join(STAGING_MARKER);
@@ -1630,6 +1660,45 @@ mod tests {
             .write(MANIFEST, manifest.to_string().as_bytes())
             .unwrap();
         staging.commit().unwrap();
+    }
+
+    /// An interrupt after an output had been put in place said "an output not yet put in
+    /// place leaves the previous one as it was": nothing recorded that it had been. A run's
+    /// swap and an import's moves now record the folder (read by [`abandon_staging`]); a
+    /// staging folder removed without being put in place records nothing.
+    #[test]
+    fn outputs_put_in_place_are_recorded_for_an_interrupt() {
+        let is_placed = |p: &Path| {
+            PLACED
+                .lock()
+                .unwrap_or_else(|e| e.into_inner())
+                .iter()
+                .any(|x| x == p)
+        };
+        let tmp = tempfile::tempdir().unwrap();
+        let (target, out) = target_in(tmp.path());
+        let staging = Staging::begin(&target, Access::Owner).unwrap();
+        let final_dir = staging.final_dir().to_path_buf();
+        assert!(!is_placed(&final_dir));
+        drop(staging);
+        assert!(!is_placed(&final_dir), "removed, not put in place");
+        write_output(&target);
+        assert!(is_placed(&final_dir), "{out:?}");
+        // An import: recorded only once its moves succeeded.
+        let program = tmp.path().join("program");
+        let base = program.join("participants");
+        let failed =
+            ImportStaging::create(&program.join(".a.staging"), &program.join("nowhere"), ".m")
+                .unwrap();
+        assert!(
+            failed
+                .finish(|| Err(std::io::Error::other("refused")))
+                .is_err()
+        );
+        assert!(!is_placed(&program.join("nowhere")));
+        let import = ImportStaging::create(&program.join(".b.staging"), &base, ".m").unwrap();
+        import.finish(|| Ok(())).unwrap();
+        assert!(is_placed(&base));
     }
 
     /// A commit that failed named the staging folder (`…/.out.staging/participants: No such

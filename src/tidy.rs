@@ -752,8 +752,9 @@ pub fn datapackage(
                 "data rows of the participant's {file}.csv as the table reader sees them, rows \
                  dropped for their shape included (not blank lines, a repeated header, title \
                  lines above the header, the date rows of an export that writes each date on a \
-                 row of its own, or summary rows such as `Average` or a day's `Total`); empty \
-                 when the file is absent or cannot be read as text"
+                 row of its own, summary rows such as `Average` or a day's `Total`, or rows \
+                 dated after withdrew that are not read); empty when the file is absent or \
+                 cannot be read as text"
             )
         } else {
             format!(

@@ -163,7 +163,7 @@ fn report_failure(e: &RunError, as_log: bool) -> i32 {
 pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
     let started = Instant::now();
     #[cfg(unix)]
-    crate::modules::external::watch_interrupts();
+    crate::modules::external::watch_interrupts(crate::modules::external::Operation::Run);
     let plan = match run::plan::plan(&run_options(args), today) {
         Ok(p) => p,
         Err(e) => return report_failure(&e, args.log_format == LogFormat::Json),
@@ -233,7 +233,7 @@ pub fn modules_command(program: Option<&Path>) -> i32 {
 pub fn merge_command(args: &MergeArgs) -> i32 {
     let started = Instant::now();
     #[cfg(unix)]
-    crate::modules::external::watch_interrupts();
+    crate::modules::external::watch_interrupts(crate::modules::external::Operation::Merge);
     let opts = merge_options(args);
     match run::shard::merge_shards(&opts) {
         Ok((summary, shards, plan)) => {

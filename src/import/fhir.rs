@@ -860,7 +860,7 @@ pub fn import(
     // (crate::output::abandon_staging): a scheduler's stop or a Ctrl-C left it in the program
     // folder, with the identified participant files written so far, until the next import.
     #[cfg(unix)]
-    crate::modules::external::watch_interrupts();
+    crate::modules::external::watch_interrupts(crate::modules::external::Operation::Import);
     let write = || -> Result<(), String> {
         let e = |e: std::io::Error| e.to_string();
         let synced = |r: Result<(), crate::output::StagingError>| r.map_err(|e| e.to_string());

@@ -271,7 +271,7 @@ impl Launch {
         };
         #[cfg(unix)]
         {
-            watch_interrupts();
+            watch_interrupts(Operation::Run);
             live.insert(child.id(), workdir.path().to_path_buf());
             drop(live);
         }
@@ -472,8 +472,11 @@ fn live_groups() -> std::sync::MutexGuard<'static, std::collections::BTreeMap<u3
 /// reaches only cohortpress; without this their processes would outlive the run. `run` and
 /// `merge` call it at their start, so an interrupted run always leaves a last line in the log (a scheduler's stop
 /// had left none).
+///
+/// `what` is the command, named in the log line; the first call names it (external modules
+/// call it as a run's).
 #[cfg(unix)]
-pub fn watch_interrupts() {
+pub fn watch_interrupts(what: Operation) {
     static INSTALL: std::sync::Once = std::sync::Once::new();
     INSTALL.call_once(|| {
         use signal_hook::consts::{SIGINT, SIGTERM};
@@ -506,10 +509,10 @@ pub fn watch_interrupts() {
                 stop_adopted();
                 // The run's unfinished output goes too (the modules that were writing for it
                 // are stopped): the output folder itself was never touched before the swap.
-                let abandoned = crate::output::abandon_staging();
+                let interrupted = crate::output::abandon_staging();
                 tracing::error!(
-                    "interrupted by {name}: the run stops here; {}",
-                    interrupted_words(&abandoned)
+                    "interrupted by {name}: {}",
+                    interrupted_words(what, &interrupted)
                 );
                 // Keep the lock: no new group is registered while the process ends.
                 let _ = signal_hook::low_level::emulate_default_handler(signal);
@@ -519,15 +522,56 @@ pub fn watch_interrupts() {
     });
 }
 
-/// What an interrupted run says it did with the output it was writing (see
-/// [`crate::output::abandon_staging`]).
+/// The command an interrupt stops ([`watch_interrupts`]): what its log line names.
 #[cfg(unix)]
-fn interrupted_words(abandoned: &[crate::output::Abandoned]) -> String {
-    if abandoned.is_empty() {
-        // Not begun yet, or already in place.
-        return "an output not yet put in place leaves the previous one as it was".into();
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Operation {
+    /// `run` (also a shard's).
+    Run,
+    /// `merge`.
+    Merge,
+    /// `import fhir`, which writes participant folders into a program folder.
+    Import,
+}
+
+/// What an interrupted command says it did with the output it was writing (see
+/// [`crate::output::abandon_staging`]). It said "the run stops here" for `import fhir` too, and
+/// "an output not yet put in place leaves the previous one as it was" also when the interrupt
+/// came after the output had been put in place (an interrupt during the swap, or while the
+/// import's folders are moved, waits for it to end, and comes after it).
+#[cfg(unix)]
+fn interrupted_words(what: Operation, interrupted: &crate::output::Interrupted) -> String {
+    let who = match what {
+        Operation::Run => "the run",
+        Operation::Merge => "the merge",
+        Operation::Import => "the import",
+    };
+    if interrupted.abandoned.is_empty() {
+        let shown = |p: &[std::path::PathBuf]| {
+            p.iter()
+                .map(|p| p.display().to_string())
+                .collect::<Vec<_>>()
+                .join(", ")
+        };
+        return match (what, interrupted.placed.is_empty()) {
+            (Operation::Import, true) => {
+                "the import stops here, before any participant folder was written; the program folder was left as it was".into()
+            }
+            (Operation::Import, false) => format!(
+                "the import stops here, after its participant folders were moved into {}, whole; only the summary of what was imported is not printed",
+                shown(&interrupted.placed)
+            ),
+            (_, true) => format!(
+                "{who} stops here, before any output was put in place; the output folder was left as it was"
+            ),
+            (_, false) => format!(
+                "{who} stops here, after its output was put in place: {} holds it, complete; only the summary line and the exit code are not given",
+                shown(&interrupted.placed)
+            ),
+        };
     }
-    abandoned
+    let words = interrupted
+        .abandoned
         .iter()
         .map(|a| {
             let kept = if a.output.exists() {
@@ -540,6 +584,11 @@ fn interrupted_words(abandoned: &[crate::output::Abandoned]) -> String {
                     "the unfinished output it was writing ({}) was removed, and {kept}",
                     a.staging.display()
                 ),
+                Err(e) if what == Operation::Import => format!(
+                    "the unfinished output it was writing ({}) could not be removed ({e}); the \
+                     next import into the same program folder removes it, and {kept}",
+                    a.staging.display()
+                ),
                 Err(e) => format!(
                     "the unfinished output it was writing ({}) could not be removed ({e}); the \
                      next run into {} or beside it removes it, and {kept}",
@@ -549,7 +598,8 @@ fn interrupted_words(abandoned: &[crate::output::Abandoned]) -> String {
             }
         })
         .collect::<Vec<_>>()
-        .join("; ")
+        .join("; ");
+    format!("{who} stops here; {words}")
 }
 
 /// Whether this process adopts orphaned descendants (see [`Containment`]).
@@ -1178,6 +1228,60 @@ impl MetricModule for ExternalModule {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The interrupt's log line said "the run stops here" for `import fhir` too, and "an
+    /// output not yet put in place leaves the previous one as it was" when the output had
+    /// already been put in place (the interrupt waits for a swap, or the import's moves, under
+    /// way). Each now says where the interrupt came.
+    #[cfg(unix)]
+    #[test]
+    fn the_interrupt_line_says_what_stopped_and_where() {
+        use crate::output::{Abandoned, Interrupted};
+        use std::path::PathBuf;
+        let none = Interrupted {
+            abandoned: Vec::new(),
+            placed: Vec::new(),
+        };
+        let out = PathBuf::from("/srv/reports");
+        let participants = PathBuf::from("/srv/program/participants");
+        let placed = |p: &PathBuf| Interrupted {
+            abandoned: Vec::new(),
+            placed: vec![p.clone()],
+        };
+        assert_eq!(
+            interrupted_words(Operation::Run, &none),
+            "the run stops here, before any output was put in place; the output folder was left as it was"
+        );
+        assert_eq!(
+            interrupted_words(Operation::Merge, &placed(&out)),
+            "the merge stops here, after its output was put in place: /srv/reports holds it, complete; only the summary line and the exit code are not given"
+        );
+        assert_eq!(
+            interrupted_words(Operation::Import, &none),
+            "the import stops here, before any participant folder was written; the program folder was left as it was"
+        );
+        assert_eq!(
+            interrupted_words(Operation::Import, &placed(&participants)),
+            "the import stops here, after its participant folders were moved into /srv/program/participants, whole; only the summary of what was imported is not printed"
+        );
+        let staging = PathBuf::from("/srv/program/.cohortpress-import.staging");
+        let writing = |removed: Result<(), String>| Interrupted {
+            abandoned: vec![Abandoned {
+                staging: staging.clone(),
+                output: participants.clone(),
+                removed,
+            }],
+            placed: Vec::new(),
+        };
+        assert_eq!(
+            interrupted_words(Operation::Import, &writing(Ok(()))),
+            "the import stops here; the unfinished output it was writing (/srv/program/.cohortpress-import.staging) was removed, and nothing was written to /srv/program/participants"
+        );
+        assert_eq!(
+            interrupted_words(Operation::Import, &writing(Err("busy".into()))),
+            "the import stops here; the unfinished output it was writing (/srv/program/.cohortpress-import.staging) could not be removed (busy); the next import into the same program folder removes it, and nothing was written to /srv/program/participants"
+        );
+    }
 
     /// Two points on one date in a weekly series made `metrics/weekly.csv` repeat a key its
     /// `datapackage.json` declares unique; an irregular series may hold both.

@@ -741,15 +741,17 @@ pub fn load_participant(
     dir: &ParticipantDir,
     as_of: NaiveDate,
 ) -> LoadedParticipant {
-    load_opened(program, dir, open(dir), as_of)
+    load_opened(program, dir, open(dir), as_of, None)
 }
 
-/// [`load_participant`] of a folder already opened and listed.
+/// [`load_participant`] of a folder already opened and listed, for a run reporting the period
+/// beginning on `reported_from` (`None`: for `check`; see [`records::Window::reported_from`]).
 pub fn load_opened(
     program: &Program,
     dir: &ParticipantDir,
     opened: OpenedDir,
     as_of: NaiveDate,
+    reported_from: Option<NaiveDate>,
 ) -> LoadedParticipant {
     let id = dir.id.as_str();
     let rel = |name: &str| format!("{PARTICIPANTS_DIR}/{id}/{name}");
@@ -932,6 +934,7 @@ pub fn load_opened(
         withdrew: profile.as_ref().and_then(|p| p.withdrew),
         follow_up_weigh_ins: profile.as_ref().is_some_and(|p| p.follow_up_weigh_ins()),
         as_of,
+        reported_from,
         height_cm: profile.as_ref().map(|p| p.height.cm()),
         high_bmi_checked: profile
             .as_ref()

@@ -98,6 +98,10 @@ pub struct Window {
     pub follow_up_weigh_ins: bool,
     /// The run's "today": later data are future data and dropped.
     pub as_of: NaiveDate,
+    /// The first day of the period a run reports; `None` for `check`. Rows dated after a
+    /// withdrawal on an earlier day are left out without a warning: the run of the month the
+    /// person left said so (see [`in_window`]).
+    pub reported_from: Option<NaiveDate>,
     /// The profile's height, cm, when known: weigh-ins that give no adult's BMI in the unit
     /// they declare, but do in the other, are in the other unit.
     pub height_cm: Option<f64>,
@@ -160,6 +164,12 @@ struct Parsed<T> {
 /// Reads the rows of `table` through `f`, skipping rows `f` refuses and rows that repeat
 /// earlier rows on strong evidence ([`Table::repeated_rows`]).
 ///
+/// Rows dated after a withdrawal of consent (`w`) are not read at all: their values are neither
+/// checked nor warned about, nor counted in the file's rows, and the file gets the one warning
+/// of [`after_withdrawn_consent`] (when the run's period calls for it, see [`in_window`]). A
+/// scale that kept syncing into such a folder wrote a row whose weight did not read, and every
+/// later month's run ended with exit code 1 on "not a number in `weight`", the value quoted.
+///
 /// When rows were dropped with a warning and none was kept, the file gives nothing: that is
 /// an error on the file (exit code 4, "a file was left out"), not a column of warnings a
 /// scheduled run's log reports as a clean run with warnings. A whole export in a form no row
@@ -169,11 +179,14 @@ fn parse_rows<T>(
     table: &Table,
     ctx: &FileCtx,
     opts: &CsvOptions,
+    w: &Window,
     diags: &mut Vec<Diagnostic>,
     mut f: impl FnMut(&Cells<'_>, &mut Vec<Diagnostic>) -> Option<T>,
 ) -> Vec<Parsed<T>> {
-    let repeats = table.repeated_rows();
-    report_repeats(table, &repeats, ctx, diags);
+    let mut repeats = table.repeated_rows();
+    let consent_withdrawn = w.withdrew.filter(|_| !w.follow_up_weigh_ins);
+    // Lines of the rows dated after the withdrawal of consent, not read.
+    let mut after_consent: Vec<u64> = Vec::new();
     let mut out = Vec::new();
     // Rows dropped with a warning: their number and the first one's warning.
     let mut dropped = 0usize;
@@ -189,7 +202,16 @@ fn parse_rows<T>(
             opts,
         };
         let before = diags.len();
-        let kept = cells.when("date", diags).and_then(|when| {
+        let when = cells.when("date", diags);
+        if let (Some(x), Some(wn)) = (consent_withdrawn, when)
+            && wn.date > x
+        {
+            diags.truncate(before);
+            ctx.uncount_row();
+            after_consent.push(row.line);
+            continue;
+        }
+        let kept = when.and_then(|when| {
             if table.is_unfilled(row) {
                 table.unfilled_row(row);
                 return None;
@@ -213,6 +235,20 @@ fn parse_rows<T>(
                 }
             }
         }
+    }
+    // A repeat of a row after the withdrawal is one too (identical, date included).
+    for (row, repeat) in table.rows.iter().zip(repeats.iter_mut()) {
+        if repeat.is_some_and(|orig| after_consent.contains(&orig)) {
+            *repeat = None;
+            ctx.uncount_row();
+            after_consent.push(row.line);
+        }
+    }
+    report_repeats(table, &repeats, ctx, diags);
+    if let (Some(x), Some(&first)) = (consent_withdrawn, after_consent.iter().min())
+        && w.reported_from.is_none_or(|from| x >= from)
+    {
+        diags.push(after_withdrawn_consent(x, first, table.column("date"), ctx));
     }
     // Rows the table reader dropped for their shape count too: a comma-separated file whose
     // weights have decimal commas (`2026-04-10,71,1,kg`) lost every row as "a field too many",
@@ -419,6 +455,13 @@ fn dedupe<T: SameValue>(
 /// `--as-of`) leaves every later row out by design, and an enrolment date typed a month late
 /// leaves out a month of rows: one note per file and kind says so, where a note per row filled
 /// the participant's report (69 notes for one participant's re-issued month).
+///
+/// Rows after a withdrawal are not counted in the file's rows either (`*_rows_in_file`), and
+/// are warned about only by `check` and by a run whose period does not begin after the
+/// withdrawal (the month the person left): a scale that kept syncing into the folder of
+/// someone who had withdrawn ended every later monthly run "with warnings" (exit code 1) for
+/// something already known. After withdrawn consent the warning gives neither the number nor
+/// the dates of those rows (nothing of them is shown), and says what to do.
 fn in_window<T>(
     rows: Vec<Parsed<T>>,
     w: &Window,
@@ -451,6 +494,9 @@ fn in_window<T>(
         .into_iter()
         .filter(|r| match why(r.date) {
             Some(k) => {
+                if matches!(k, Out::AfterWithdrawal(_)) {
+                    ctx.uncount_row();
+                }
                 match left.iter_mut().find(|x| x.0 == k) {
                     Some(x) => {
                         x.2 = x.2.min(r.date);
@@ -465,6 +511,16 @@ fn in_window<T>(
         })
         .collect();
     for (kind, line, lo, hi, n) in left {
+        if let Out::AfterWithdrawal(x) = kind {
+            // Said by the run of the month they left (or an earlier one) and by `check`.
+            if w.reported_from.is_some_and(|from| x < from) {
+                continue;
+            }
+            if !w.follow_up_weigh_ins {
+                diags.push(after_withdrawn_consent(x, line, col, ctx));
+                continue;
+            }
+        }
         let dates = if lo == hi {
             lo.to_string()
         } else {
@@ -515,6 +571,47 @@ fn in_window<T>(
         );
     }
     kept
+}
+
+/// The end of the `expected` of [`after_withdrawn_consent`], by which the participant's report
+/// recognises it ([`is_after_withdrawn_consent`]).
+const CONSENT_WITHDRAWN: &str = "the participant withdrew consent to the use of their data";
+
+/// The warning about a file of someone who withdrew consent on `withdrew` that holds rows dated
+/// after it (the first at `line`): for the program staff, what to do. It gives neither their
+/// number nor their dates, which are the person's data after consent was withdrawn.
+fn after_withdrawn_consent(
+    withdrew: NaiveDate,
+    line: u64,
+    col: Option<u64>,
+    ctx: &FileCtx,
+) -> Diagnostic {
+    // Short enough for the run log's summary of warnings, which cuts messages at 120
+    // characters.
+    ctx.warning(format!(
+        "rows dated after consent was withdrawn ({withdrew}) are not read: stop what adds them, \
+         remove them"
+    ))
+    .at(line, col)
+    .field("date")
+    .expected(format!(
+        "no rows dated after {withdrew}: {CONSENT_WITHDRAWN}"
+    ))
+    .found(format!("rows dated after {withdrew}"))
+    .hint(format!(
+        "the first is at this line; they are not shown or counted anywhere. Stop whatever still \
+         adds this participant's records to their folder (a scale or app that syncs into it) and \
+         remove the rows dated after {withdrew}; runs for later months leave them out without a \
+         warning, and `cohortpress check` lists them until they are gone"
+    ))
+}
+
+/// Whether `d` is the warning of [`after_withdrawn_consent`] (for the staff: the participant's
+/// own report leaves it out).
+pub fn is_after_withdrawn_consent(d: &Diagnostic) -> bool {
+    d.expected
+        .as_deref()
+        .is_some_and(|e| e.ends_with(CONSENT_WITHDRAWN))
 }
 
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -852,7 +949,7 @@ pub fn parse_weights(
     let mut declared_rows = 0usize;
     // Whether the file's note already quotes its first weight in stones and pounds.
     let mut stones_noted = false;
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         const DROP: &str = "the row is dropped";
         // A spreadsheet's `Average` (or `Max`…) row with a date, marked in a column of its own:
         // no weigh-in.
@@ -1492,7 +1589,7 @@ pub fn parse_intake(
     let mut declared_rows = 0usize;
     // Whether any cell wrote its energy unit (then an `Energy` header needs none).
     let mut units_in_cells = false;
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         // A day's `Average` (or `Max`…) row beside its meals is no meal (its `Total` row is
         // checked against them below).
         if let Some(label) = c.table.row_label(c.row, &SUMMARY_LABELS)
@@ -2164,7 +2261,7 @@ pub fn parse_activity(
             "durations with one colon read as minutes:seconds, as `{raw}` shows (as hours:minutes it would be longer than an activity can last)"
         )
     });
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         let activity = c.required_text("activity", d)?;
         // A log's `Total` row is no activity: with a `met` value it was added to the day's
         // activities as one more.
@@ -2459,7 +2556,7 @@ pub fn parse_sessions(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<SessionRecord>> {
     let table = read_table(text, &SESSIONS, opts, ctx, diags)?;
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         let session = c.required_text("session", d)?;
         let a = c.required_text("attended", d)?;
         let attended = match a.to_lowercase().as_str() {
@@ -2669,7 +2766,7 @@ pub fn parse_labs(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Vec<LabResult>> {
     let table = read_table(text, &LABS, opts, ctx, diags)?;
-    let rows = parse_rows(&table, ctx, opts, diags, |c, d| {
+    let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         let name = c.required_text("test", d)?;
         let Some(kind) = lab_name(&name) else {
             d.push(

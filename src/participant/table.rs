@@ -1516,7 +1516,83 @@ fn read_records(
     let steps_col = steps_only
         .then(|| columns.get("steps").map(|&i| i as u64 + 1))
         .flatten();
-    let missing_error = |missing: &[&str]| {
+    // What the header gave, for a refusal for missing columns: each column as written and what
+    // it was read as (`date_at`: a column read as the date by its cells). "missing required
+    // columns `date`, `weight`" beside the header alone (`When,Value,Units`), at no column,
+    // left the reader to work out that `Units` had been read and `When` and `Value` had not,
+    // and which names would have been. The columns as the header names them are copied: the
+    // table takes the map.
+    let named: Vec<(usize, &'static str)> = columns.iter().map(|(c, &i)| (i, *c)).collect();
+    let header_read = |date_at: Option<usize>| {
+        let mut read = named.clone();
+        read.extend(date_at.map(|i| (i, "date")));
+        read.sort();
+        let read: Vec<String> = read
+            .iter()
+            .filter_map(|&(i, c)| {
+                let how = if Some(i) == date_at {
+                    " by its cells"
+                } else {
+                    ""
+                };
+                Some(format!(
+                    "`{}` (column {}) as `{c}`{how}",
+                    written.get(i)?,
+                    i + 1
+                ))
+            })
+            .collect();
+        let not_read: Vec<String> = unnamed
+            .iter()
+            .filter(|&&i| Some(i) != date_at)
+            .filter_map(|&i| Some(format!("`{}` (column {})", written.get(i)?, i + 1)))
+            .collect();
+        match (read.is_empty(), not_read.is_empty()) {
+            (true, _) => "no column read as one of ours".to_string(),
+            (false, true) => format!("read: {}", read.join(", ")),
+            (false, false) => format!(
+                "read: {}; not read: {}",
+                read.join(", "),
+                not_read.join(", ")
+            ),
+        }
+    };
+    // Where the message points: a missing unit at the value column whose header or cells may
+    // carry it; any other missing column at the first column the header does not name as one
+    // of ours, where it most likely is under a name of its own.
+    let point_at = |missing: &[&str], date_at: Option<usize>| -> Option<u64> {
+        let value_col = |m: &str| {
+            spec.header_units
+                .iter()
+                .find(|(_, _, r)| *r == Some(m))
+                .and_then(|(v, _, _)| named.iter().find(|(_, c)| c == v).map(|(i, _)| *i))
+        };
+        match missing {
+            [m] if value_col(m).is_some() => value_col(m),
+            _ => unnamed.iter().copied().find(|&i| Some(i) != date_at),
+        }
+        .map(|i| i as u64 + 1)
+    };
+    // The names each missing column may be headed by, besides its own.
+    let accepted = |missing: &[&str]| {
+        let mut s = format!("columns {}", column_list(spec));
+        for m in missing {
+            let other: Vec<String> = spec
+                .aliases
+                .iter()
+                .filter(|(_, c)| c == m)
+                .map(|(a, _)| format!("`{a}`"))
+                .collect();
+            if !other.is_empty() {
+                s.push_str(&format!("; `{m}` may also be headed {}", other.join(", ")));
+            }
+        }
+        if !missing.is_empty() {
+            s.push_str(" (any case; a space for `_`)");
+        }
+        s
+    };
+    let missing_error = |missing: &[&str], date_at: Option<usize>| {
         let looks_like_data = names
             .first()
             .is_some_and(|f| parse_when(f, opts).is_some() || parse_decimal(f).is_ok());
@@ -1585,9 +1661,16 @@ fn read_records(
                 .collect::<Vec<_>>()
                 .join(", ")
         ))
-        .at(header_line, steps_col)
-        .expected(format!("columns {}", column_list(spec)))
-        .found(format!("`{}`", written.join(&delim_text)))
+        .at(
+            header_line,
+            steps_col.or(point_at(missing, date_at).filter(|_| !looks_like_data)),
+        )
+        .expected(accepted(missing))
+        .found(format!(
+            "`{}`: {}",
+            written.join(&delim_text),
+            header_read(date_at)
+        ))
         .hint(hint)
     };
     if !missing.is_empty() && units_in_cells.is_none() {
@@ -1596,7 +1679,7 @@ fn read_records(
         if time_for_date_rows.is_none() && !date_by_content.is_empty() {
             missing.insert(0, "date");
         }
-        diags.push(missing_error(&missing));
+        diags.push(missing_error(&missing, None));
         usable = false;
     }
     if !usable {
@@ -2037,7 +2120,7 @@ fn read_records(
         });
         let mut missing: Vec<&str> = missing.iter().copied().filter(|_| !units_there).collect();
         missing.insert(0, "date");
-        let mut e = missing_error(&missing);
+        let mut e = missing_error(&missing, None);
         if dated.len() > 1 {
             let names: Vec<String> = dated.iter().map(|&i| format!("`{}`", written[i])).collect();
             e = e.hint(format!(
@@ -2066,7 +2149,7 @@ fn read_records(
             .iter()
             .any(|r| table.get(r, v).is_some_and(has_unit))
     {
-        diags.push(missing_error(&missing));
+        diags.push(missing_error(&missing, dated.first().copied()));
         return None;
     }
     // Extra columns are only worth a word when the header itself is right.
@@ -4499,6 +4582,78 @@ mod tests {
         assert_eq!(d[0].line, Some(1));
     }
 
+    /// A date column under a name no list holds (`When`, `Messdatum`) beside columns that are
+    /// not ours either was refused as "missing required columns `date`, `weight`" at no
+    /// column, with the header as found and `columns date, weight, unit` as expected: nothing
+    /// said which columns had been read, as what, or which other names the missing ones may
+    /// have. Now the message points at the first column not read, says what each column was
+    /// read as, and names the other headers each missing column is read under.
+    #[test]
+    fn missing_columns_name_what_was_read_and_the_names_accepted() {
+        let opts = CsvOptions::default();
+        let read = |text: &str, opts: &CsvOptions| {
+            let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+            let mut d = Vec::new();
+            let t = read_table(
+                text,
+                &crate::participant::records::WEIGHTS,
+                opts,
+                &ctx,
+                &mut d,
+            );
+            (t, d)
+        };
+        let (t, d) = read("When,Value,Units\n2026-04-01,72.5,kg\n", &opts);
+        assert!(t.is_none());
+        assert_eq!(d.len(), 1, "{d:?}");
+        let e = &d[0];
+        assert_eq!(
+            e.message,
+            "missing required columns `date`, `weight`; the file is not used"
+        );
+        assert_eq!((e.line, e.column), (Some(1), Some(1)));
+        assert_eq!(
+            e.found.as_deref(),
+            Some(
+                "`When,Value,Units`: read: `Units` (column 3) as `unit`; not read: `When` (column 1), `Value` (column 2)"
+            )
+        );
+        assert_eq!(
+            e.expected.as_deref(),
+            Some(
+                "columns date, weight, unit (optional: time, source); `date` may also be headed `day`, `datetime`, `date_time`, `timestamp`, `measured_at`, `start_time`, `datum`; `weight` may also be headed `body_weight`, `bodyweight`, `mass`, `body_mass`, `weight_body_mass`, `gewicht` (any case; a space for `_`)"
+            )
+        );
+        let (_, d) = read("Messdatum;Wert;Masseinheit\n2026-04-01;72,5;kg\n", &opts);
+        assert_eq!((d[0].line, d[0].column), (Some(1), Some(1)));
+        assert_eq!(
+            d[0].found.as_deref(),
+            Some("`Messdatum;Wert;Masseinheit`: no column read as one of ours")
+        );
+        assert!(
+            d[0].expected
+                .as_deref()
+                .unwrap()
+                .contains("`unit` may also be headed `weight_unit`, `units`, `einheit`"),
+            "{}",
+            d[0]
+        );
+        // A date found by its cells is named as read; the missing unit is pointed at the
+        // weight column, whose header or cells may carry it.
+        let (_, d) = read("Recorded,Mass\n2026-04-01,72.5\n", &opts);
+        assert_eq!(
+            d[0].message,
+            "missing required column `unit`; the file is not used"
+        );
+        assert_eq!((d[0].line, d[0].column), (Some(1), Some(2)));
+        assert_eq!(
+            d[0].found.as_deref(),
+            Some(
+                "`Recorded,Mass`: read: `Recorded` (column 1) as `date` by its cells, `Mass` (column 2) as `weight`"
+            )
+        );
+    }
+
     #[test]
     fn an_empty_file_is_named_and_a_header_only_file_is_not() {
         for (text, found) in [("", "an empty file"), ("\n\r\n \n", "3 blank line(s)")] {
@@ -5605,15 +5760,16 @@ mod tests {
         let (t, d) = read(&format!("{}\n", names.join(",")), &opts);
         assert!(t.is_none());
         let found = d[0].found.as_deref().unwrap();
-        // `a,b,…` of 200 names of 30 characters: 6,201 characters, of which 1,000 are kept.
+        // `a,b,…` of 200 names of 30 characters and what was read of them (`: no column read
+        // as one of ours`): 6,232 characters, of which 1,000 are kept.
         assert!(
             found.starts_with("`column number 000 of an export,column number 001 of"),
             "{found}"
         );
-        assert!(found.ends_with("… (5,201 more characters)"), "{found}");
+        assert!(found.ends_with("… (5,232 more characters)"), "{found}");
         assert_eq!(
             found.chars().count(),
-            1000 + "… (5,201 more characters)".chars().count()
+            1000 + "… (5,232 more characters)".chars().count()
         );
     }
 

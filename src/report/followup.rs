@@ -66,6 +66,12 @@ pub struct FollowupRecord {
     /// Date the participant left the program, if on or before the period's end (ISO).
     #[serde(default)]
     pub left_program: Option<String>,
+    /// `true` when leaving on `left_program` was a withdrawal of consent to the use of their
+    /// data (`withdrawal_reason: consent`, the default), not only of the program: nothing
+    /// after that day is read, so a flag of a later period comes from their records up to it
+    /// ([`withdrawn_before`]).
+    #[serde(default)]
+    pub consent_withdrawn: bool,
     /// The clinical flags.
     pub items: Vec<FollowupItem>,
 }
@@ -259,6 +265,11 @@ pub fn for_participant(
     let v = results.views();
     let (trend, outcomes, energy) = (v.trend.as_ref(), v.outcomes.as_ref(), v.energy.as_ref());
     let period = format!("{} to {}", plan.period.from, plan.period.to);
+    let left_program = data.profile.withdrew.filter(|w| *w <= plan.period.to);
+    let consent_withdrawn = left_program.is_some() && !data.profile.follow_up_weigh_ins();
+    // Withdrew consent before this period: every flag comes from records up to that day, the
+    // same as the period before's, and is neither new nor continuing.
+    let withdrawn_earlier = consent_withdrawn && left_program.is_some_and(|w| w < plan.period.from);
     let mut items: Vec<FollowupItem> = flags
         .into_iter()
         .map(|(code, message, at_follow_up)| {
@@ -272,7 +283,7 @@ pub fn for_participant(
                 } else {
                     dates.join("; ")
                 },
-                new: !before.contains(&code),
+                new: !before.contains(&code) && !withdrawn_earlier,
                 code,
             }
         })
@@ -301,13 +312,22 @@ pub fn for_participant(
             .rev()
             .find(|w| w.date <= plan.period.to)
             .map(|w| w.date.to_string()),
-        left_program: data
-            .profile
-            .withdrew
-            .filter(|w| *w <= plan.period.to)
-            .map(|w| w.to_string()),
+        left_program: left_program.map(|w| w.to_string()),
+        consent_withdrawn,
         items,
     })
+}
+
+/// The day `r` withdrew consent, when that was before `period_from` (the first day of the
+/// period listed): their records end there, so their flags are "before withdrawal", neither
+/// new nor continuing. In the sample program's September list SG-037, who withdrew consent on
+/// 5 June, was "continuing" for a fasting glucose and an HbA1c of 20 April, as in every month
+/// after June, though nothing of theirs had been read since.
+pub fn withdrawn_before(r: &FollowupRecord, period_from: NaiveDate) -> Option<NaiveDate> {
+    r.left_program
+        .as_deref()
+        .and_then(|d| NaiveDate::parse_from_str(d, "%Y-%m-%d").ok())
+        .filter(|d| r.consent_withdrawn && *d < period_from)
 }
 
 /// What `followup.html.hbs` sees.
@@ -363,7 +383,11 @@ fn values(r: &FollowupRecord, plan: &Scope<'_>) -> String {
     if let Some(d) = &r.left_program
         && let Ok(d) = NaiveDate::parse_from_str(d, "%Y-%m-%d")
     {
-        v.push(format!("left the program {}", fmt::date(d)));
+        if r.consent_withdrawn {
+            v.push(format!("withdrew consent {}", fmt::date(d)));
+        } else {
+            v.push(format!("left the program {}", fmt::date(d)));
+        }
     }
     v.join("; ")
 }
@@ -372,21 +396,35 @@ fn values(r: &FollowupRecord, plan: &Scope<'_>) -> String {
 /// seen after the person left (SG-001 of the sample program, who stopped the program on
 /// 15 Aug 2026, was listed as "new" for a low BMI that only follow-up weigh-ins showed, with
 /// nothing to tell it from a finding of the program).
-fn status(it: &FollowupItem, r: &FollowupRecord) -> String {
+///
+/// Someone who withdrew consent is not "continuing": before the period, their flags are
+/// "before withdrawal" ([`withdrawn_before`]); within it, the status says their records end on
+/// that day.
+fn status(it: &FollowupItem, r: &FollowupRecord, period_from: NaiveDate) -> String {
     if it.code == LABS_NOT_READ {
         return "not read".into();
+    }
+    if let Some(d) = withdrawn_before(r, period_from) {
+        return format!(
+            "before withdrawal: raised by their records up to {}, when they withdrew consent; nothing later is read",
+            fmt::date(d)
+        );
     }
     let s = if it.new { "new" } else { "continuing" };
     let left = r
         .left_program
         .as_deref()
         .and_then(|d| NaiveDate::parse_from_str(d, "%Y-%m-%d").ok());
-    match left.filter(|_| it.at_follow_up) {
-        Some(d) => format!(
+    match left {
+        Some(d) if it.at_follow_up => format!(
             "{s}; seen at follow-up, after leaving the program on {}",
             fmt::date(d)
         ),
-        None => s.into(),
+        Some(d) if r.consent_withdrawn => format!(
+            "{s}; withdrew consent on {}, nothing later is read",
+            fmt::date(d)
+        ),
+        _ => s.into(),
     }
 }
 
@@ -446,6 +484,20 @@ pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext 
         .filter(|r| r.items.iter().any(|i| i.code == LABS_NOT_READ))
         .count();
     let mut summary = summary_line(flagged, with_new);
+    let withdrawn = records
+        .iter()
+        .filter(|r| withdrawn_before(r, plan.period.from).is_some())
+        .count();
+    let mut compared_with = compared_with;
+    if withdrawn > 0 {
+        summary.push_str(&match withdrawn {
+            1 => " 1 of them withdrew consent before this period: listed for flags raised by their records up to then.".to_string(),
+            n => format!(" {n} of them withdrew consent before this period: listed for flags raised by their records up to then."),
+        });
+        compared_with.push_str(
+            " “Before withdrawal” marks a flag of someone who withdrew consent before this period: raised by their records up to that day (nothing later is read), so neither new nor continuing; it stays on the list so that it is not lost.",
+        );
+    }
     match unread {
         0 => {}
         1 => summary.push_str(" 1 participant has lab results that could not be read."),
@@ -460,7 +512,7 @@ pub fn context(plan: &Scope<'_>, records: &[FollowupRecord]) -> FollowupContext 
             rows.push(vec![
                 r.id.clone(),
                 r.name.clone().unwrap_or_default(),
-                status(it, r),
+                status(it, r, plan.period.from),
                 it.reason.clone(),
                 vals.clone(),
                 pretty_dates(&it.dates),
@@ -528,6 +580,8 @@ pub fn csv(plan: &Scope<'_>, records: &[FollowupRecord]) -> Result<Vec<u8>, Rend
                 &it.code,
                 if it.code == LABS_NOT_READ {
                     "not_read"
+                } else if withdrawn_before(r, plan.period.from).is_some() {
+                    "before_withdrawal"
                 } else if it.new {
                     "new"
                 } else {

@@ -745,11 +745,15 @@ fn flags(results: &ModuleResults, left: Option<NaiveDate>) -> Vec<FlagView> {
 pub const COPY_NOTICE: &str = "The weigh-ins in this report are identical, entry for entry, to those in another participant's folder in this program. Either the same person's records are filed twice, or a folder was copied for a new participant and not emptied, so the weight figures below may not be yours. Until the program team has corrected it, this report is not counted in the group report. If these weigh-ins are not yours, please tell the program team.";
 
 /// Data problems found in this participant's files, in plain words (a copy of another folder's
-/// weigh-ins is the report's notice instead).
+/// weigh-ins is the report's notice instead; rows dated after a withdrawal of consent are the
+/// staff's to deal with, and nothing of them is shown).
 fn data_notes(diags: &[Diagnostic]) -> Vec<String> {
     diags
         .iter()
-        .filter(|d| !crate::participant::is_copy_of_another(d))
+        .filter(|d| {
+            !crate::participant::is_copy_of_another(d)
+                && !crate::participant::records::is_after_withdrawn_consent(d)
+        })
         .map(|d| {
             let file = d.file.rsplit('/').next().unwrap_or(&d.file);
             let line = d.line.map(|l| format!(", line {l}")).unwrap_or_default();

@@ -754,7 +754,13 @@ fn process_participant(
         templates,
         staging,
     } = *job;
-    let mut loaded = participant::load_opened(&plan.program, dir, opened, plan.as_of);
+    let mut loaded = participant::load_opened(
+        &plan.program,
+        dir,
+        opened,
+        plan.as_of,
+        Some(plan.period.from),
+    );
     // Kept with the participant's own problems: their report says it, and the data-quality
     // list and the log name it once.
     loaded

@@ -409,7 +409,7 @@ fn an_import_stopped_by_sigterm_leaves_no_staging_behind() {
         .unwrap();
     assert!(
         stderr.contains(&format!(
-            "interrupted by SIGTERM: the run stops here; the unfinished output it was writing \
+            "interrupted by SIGTERM: the import stops here; the unfinished output it was writing \
              ({}) was removed, and {} was left as it was",
             staging.display(),
             out.join("participants").display()

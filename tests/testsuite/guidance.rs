@@ -345,7 +345,17 @@ fn followup_list_holds_exactly_the_flagged_participants_and_stays_private() {
             .entry(rec[col("participant_id")].to_string())
             .or_default()
             .insert(rec[col("flag")].to_string());
-        assert!(matches!(&rec[col("status")], "new" | "continuing"));
+        // SG-037 withdrew consent on 5 June: nothing of theirs is continuing in September.
+        let want: &[&str] = if &rec[col("participant_id")] == "SG-037" {
+            &["before_withdrawal"]
+        } else {
+            &["new", "continuing"]
+        };
+        assert!(
+            want.contains(&&rec[col("status")]),
+            "{:?}",
+            (&rec[col("participant_id")], &rec[col("status")])
+        );
         assert!(!rec[col("reason")].is_empty());
         assert!(!rec[col("dates")].is_empty());
     }
@@ -434,6 +444,7 @@ fn context_md_documents_exactly_the_followup_fields() {
         logged_intake_kcal_per_day: Some(1476.0),
         last_weigh_in: Some("2026-09-30".into()),
         left_program: None,
+        consent_withdrawn: false,
         items: vec![FollowupItem {
             code: "low_intake".into(),
             reason: "Logged intake below the usual floor".into(),
@@ -915,4 +926,105 @@ fn followup_list_names_lab_rows_that_could_not_be_read() {
         html.contains("2 participants have lab results that could not be read."),
         "{html}"
     );
+}
+
+/// The follow-up list kept SG-037 of the sample, who withdrew consent on 5 June 2026, as
+/// "continuing" every month after, for a fasting glucose and an HbA1c of 20 April, and its
+/// values said "left the program". Their flags stay on the list (nobody may have seen them:
+/// the list may be turned on, or the program's runs begun, after they left), but in the month
+/// they left the status says that nothing after that day is read, and in later months it is
+/// "before withdrawal", neither new nor continuing, with a line saying what that means.
+#[test]
+fn followup_list_never_calls_a_withdrawn_persons_flag_continuing() {
+    let prog = ProgramTest::sample();
+    let yaml = prog.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nfollowup:\n  recipient: \"Program nurse\"\n"),
+    )
+    .unwrap();
+    let list = |period: &str| {
+        let out = format!("{{dir}}/only-{period}");
+        let r = prog.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--period",
+            period,
+            "--formats",
+            "html",
+            "--only",
+            "SG-037",
+            "--out",
+            &out,
+        ]);
+        assert!(r.code <= 1, "{}", r.stderr);
+        let folder = prog.dir.join(format!("only-{period}/followup"));
+        let mut r = csv::Reader::from_path(folder.join("followup.csv")).unwrap();
+        let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+        let col = |n: &str| header.iter().position(|h| h == n).unwrap();
+        let rows: Vec<(String, String, String)> = r
+            .records()
+            .map(|rec| rec.unwrap())
+            .map(|rec| {
+                (
+                    rec[col("flag")].to_string(),
+                    rec[col("status")].to_string(),
+                    rec[col("left_program")].to_string(),
+                )
+            })
+            .collect();
+        let html = std::fs::read_to_string(folder.join("followup.html")).unwrap();
+        (rows, html)
+    };
+    let flag = |status: &str, left: &str| {
+        (
+            "lab_diabetes_range".to_string(),
+            status.to_string(),
+            left.to_string(),
+        )
+    };
+    // May: still in the program; June: left on the 5th.
+    let (may, _) = list("2026-05");
+    assert_eq!(may, [flag("continuing", ""), flag("continuing", "")]);
+    let (june, html) = list("2026-06");
+    assert_eq!(
+        june,
+        [
+            flag("continuing", "2026-06-05"),
+            flag("continuing", "2026-06-05")
+        ]
+    );
+    assert!(
+        html.contains("continuing; withdrew consent on 5 Jun 2026, nothing later is read"),
+        "{html}"
+    );
+    assert!(html.contains("withdrew consent 5 Jun 2026"), "{html}");
+    assert!(!html.contains("left the program"), "{html}");
+    for period in ["2026-07", "2026-09"] {
+        let (rows, html) = list(period);
+        assert_eq!(
+            rows,
+            [
+                flag("before_withdrawal", "2026-06-05"),
+                flag("before_withdrawal", "2026-06-05")
+            ],
+            "{period}"
+        );
+        assert!(!html.contains(">continuing<"), "{period}: {html}");
+        assert!(
+            html.contains("before withdrawal: raised by their records up to 5 Jun 2026, when they withdrew consent; nothing later is read"),
+            "{period}: {html}"
+        );
+        assert!(
+            html.contains("1 participant with a clinical flag this period; no flag of theirs is new. 1 of them withdrew consent before this period: listed for flags raised by their records up to then."),
+            "{period}: {html}"
+        );
+        assert!(
+            html.contains("“Before withdrawal” marks a flag"),
+            "{period}: {html}"
+        );
+    }
 }

@@ -799,6 +799,7 @@ mod readers {
                 withdrew: None,
                 follow_up_weigh_ins: false,
                 as_of: chrono::NaiveDate::from_ymd_opt(2026, 12, 1).unwrap(),
+                reported_from: None,
                 height_cm: None,
                 high_bmi_checked: false,
                 low_bmi_checked: false,

@@ -1574,3 +1574,80 @@ fn the_audit_notes_name_each_hidden_count_as_the_report_shows_it() {
     );
     assert!(!html.contains("3 − 1"));
 }
+
+/// Which ledger a run without `--state` uses when stray ones lie about (docs/GUIDE.md, "Across
+/// releases"): the program's own first, else the output folder's own (`<out>.ledger`), else the
+/// one beside the output folder that records this program. A preview run of an older version
+/// left `preview.ledger` (and a second stray, `old.ledger`) beside the program's own
+/// `reports.ledger`: the program's own still wins, for a run into `reports` and for one into
+/// `preview` (whose own name the stray has), and neither stray stops the run as "two ledgers
+/// beside"; without the program's own, `preview.ledger` is the preview run's; without either,
+/// the one left beside is used, with a line saying so.
+#[test]
+fn stray_ledgers_beside_never_outrank_the_programs_own_or_the_output_folders() {
+    let t = ProgramTest::fixture("report-small");
+    let releases = |ledger: &str| -> usize {
+        let path = t.dir.join(ledger).join("ledger.json");
+        let v: serde_json::Value = serde_json::from_slice(&std::fs::read(path).unwrap()).unwrap();
+        v["releases"].as_array().unwrap().len()
+    };
+    let run = |as_of: &str, out: Option<&str>| {
+        let mut args = vec!["run", "{dir}", "--as-of", as_of, "--formats", "html"];
+        if let Some(o) = out {
+            args.extend(["--out", o]);
+        }
+        t.run(&args)
+    };
+    let o = run(AS_OF, None);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert_eq!(releases("reports.ledger"), 1);
+    // Two strays beside, each recording this program (copies of its ledger).
+    for stray in ["preview.ledger", "old.ledger"] {
+        std::fs::create_dir(t.dir.join(stray)).unwrap();
+        for f in ["ledger.json", "secret.key"] {
+            std::fs::copy(
+                t.dir.join("reports.ledger").join(f),
+                t.dir.join(stray).join(f),
+            )
+            .unwrap();
+        }
+    }
+    // The program's own wins, whatever --out says.
+    let o = run("2026-12-02", None);
+    assert_eq!(o.code, 0, "{o:?}");
+    let o = run("2026-12-03", Some("{dir}/preview"));
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        !o.stderr.contains(".ledger"),
+        "no ledger named: {}",
+        o.stderr
+    );
+    assert_eq!(
+        (
+            releases("reports.ledger"),
+            releases("preview.ledger"),
+            releases("old.ledger")
+        ),
+        (3, 1, 1)
+    );
+    // Without the program's own: the output folder's own, not stopped by `old.ledger` beside it.
+    let kept = t.dir.parent().unwrap().join("kept.ledger");
+    std::fs::rename(t.dir.join("reports.ledger"), &kept).unwrap();
+    let o = run("2026-12-04", Some("{dir}/preview"));
+    assert_eq!(o.code, 0, "{o:?}");
+    assert_eq!((releases("preview.ledger"), releases("old.ledger")), (2, 1));
+    // Without either: the one beside, said in the log.
+    std::fs::remove_dir_all(t.dir.join("preview.ledger")).unwrap();
+    let o = run("2026-12-05", Some("{dir}/preview"));
+    assert_eq!(o.code, 0, "{o:?}");
+    assert_eq!(releases("old.ledger"), 2);
+    assert!(
+        o.stderr.contains(&format!(
+            "group-report ledger {}: used for this report",
+            t.dir.join("old.ledger").display()
+        )),
+        "{}",
+        o.stderr
+    );
+    assert!(!t.dir.join("reports.ledger").exists() && !t.dir.join("preview.ledger").exists());
+}

@@ -1298,11 +1298,15 @@ fn a_logged_input_problem_carries_its_participant_file_line_and_column_as_fields
         (&bytes["fields"]["line"], &bytes["fields"]["column"]),
         (&serde_json::json!(3), &serde_json::json!(15))
     );
-    // A line without a column has no `column` field, and one without a participant (a folder
-    // skipped for its name) no `participant`.
+    // A missing column is pointed at (the value column that may carry the missing unit); a
+    // problem without a line has no `line` or `column` field, and one without a participant
+    // (a folder skipped for its name) no `participant`.
     let column = about("participants/missing-column/weights.csv");
     assert_eq!(column["fields"]["line"], 1);
-    assert!(column["fields"].get("column").is_none(), "{column}");
+    assert_eq!(column["fields"]["column"], 2, "{column}");
+    let nowhere = about("participants/missing-profile/profile.yaml");
+    assert!(nowhere["fields"].get("line").is_none(), "{nowhere}");
+    assert!(nowhere["fields"].get("column").is_none(), "{nowhere}");
     let skipped = about("participants/bad id");
     assert!(skipped["fields"].get("participant").is_none(), "{skipped}");
     // The text log says it once, in the message: no fields repeated after it.

@@ -897,3 +897,93 @@ fn today_is_the_participants_day_when_the_program_names_their_time_zone() {
         checked.stdout
     );
 }
+
+/// A participant who withdrew consent on 2026-06-15 and whose scale and apps kept syncing into
+/// their folder: every later monthly run ended with exit code 1, five warnings giving the
+/// number and dates of the rows after the withdrawal (also in the participant's own report),
+/// and `weights_rows_in_file` counted them. Now the run of the month they left warns, once
+/// per file, saying what to do and nothing of the rows; later months' runs are clean (exit
+/// code 0) and show nothing of them either; `check` still lists them.
+#[test]
+fn rows_synced_after_withdrawn_consent_warn_in_the_month_of_leaving_only() {
+    let t = ProgramTest::fixture("report-small");
+    let folder = t.dir.join("participants/SG-003");
+    let profile = std::fs::read_to_string(folder.join("profile.yaml")).unwrap();
+    std::fs::write(
+        folder.join("profile.yaml"),
+        profile.replace(
+            "enrolled: 2026-04-01\n",
+            "enrolled: 2026-04-01\nwithdrew: 2026-06-15\n",
+        ),
+    )
+    .unwrap();
+    // The scale also synced a weigh-in that does not read, and one twice.
+    let mut weights = std::fs::read_to_string(folder.join("weights.csv")).unwrap();
+    let last = weights.lines().last().unwrap().to_string();
+    weights.push_str(&format!("2026-09-29,7x1.5,lb,home-scale\n{last}\n"));
+    std::fs::write(folder.join("weights.csv"), &weights).unwrap();
+    let after = weights
+        .lines()
+        .skip(1)
+        .filter(|l| l.get(..10).is_some_and(|d| d > "2026-06-15"))
+        .count();
+    assert!(
+        after > 10,
+        "the fixture has weigh-ins after 15 June: {after}"
+    );
+    let run = |period: &str| {
+        let out = beside(&t, &format!("out-{period}"));
+        let o = run_to(&t, &out, &["--period", period]);
+        (o, out)
+    };
+    let (june, june_out) = run("2026-06");
+    assert_eq!(june.code, 1, "{}", june.stderr);
+    let dq = std::fs::read_to_string(june_out.join("metrics/data-quality.csv")).unwrap();
+    let said: Vec<&str> = dq
+        .lines()
+        .filter(|l| l.contains("consent was withdrawn (2026-06-15)"))
+        .collect();
+    assert_eq!(said.len(), 5, "one per file:\n{dq}");
+    assert!(
+        said.iter().all(|l| l.starts_with("warning,SG-003,")),
+        "{said:#?}"
+    );
+    // Nothing of the rows after it: neither their dates nor their number nor their values.
+    assert!(!dq.contains("7x1.5") && !dq.contains("duplicate"), "{dq}");
+    assert!(
+        !dq.contains("2026-06-16") && !dq.contains("rows are dated after"),
+        "{dq}"
+    );
+    let report = std::fs::read_to_string(june_out.join("participants/SG-003.html")).unwrap();
+    assert!(
+        !report.contains("withdrawn (2026-06-15)"),
+        "the staff's, not the participant's"
+    );
+    for period in ["2026-07", "2026-09"] {
+        let (o, out) = run(period);
+        assert_eq!(o.code, 0, "{period}: {}", o.stderr);
+        assert!(o.stderr.contains(" 0 warnings"), "{}", o.stderr);
+        let dq = std::fs::read_to_string(out.join("metrics/data-quality.csv")).unwrap();
+        assert!(!dq.contains("SG-003"), "{period}: {dq}");
+        let csv = std::fs::read_to_string(out.join("metrics/participants.csv")).unwrap();
+        let header: Vec<&str> = csv.lines().next().unwrap().split(',').collect();
+        let row: Vec<&str> = csv
+            .lines()
+            .find(|l| l.starts_with("SG-003,"))
+            .unwrap()
+            .split(',')
+            .collect();
+        let col = |n: &str| row[header.iter().position(|h| *h == n).unwrap()];
+        assert_eq!(
+            col("weights_rows_in_file"),
+            col("weights_rows_used"),
+            "{period}: the rows after the withdrawal are counted nowhere"
+        );
+    }
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert!(
+        check.stdout.contains("consent was withdrawn (2026-06-15)"),
+        "{}",
+        check.stdout
+    );
+}

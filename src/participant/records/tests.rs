@@ -11,6 +11,7 @@ fn window() -> Window {
         withdrew: None,
         follow_up_weigh_ins: false,
         as_of: d(2026, 12, 1),
+        reported_from: None,
         height_cm: None,
         high_bmi_checked: false,
         low_bmi_checked: false,
@@ -725,39 +726,53 @@ fn unit_check_uses_neighbours_by_date_not_by_file_order() {
 
 #[test]
 fn dates_outside_the_window_are_dropped() {
-    let mut diags = Vec::new();
-    let w = Window {
-        enrolled: Some(d(2026, 4, 1)),
-        withdrew: Some(d(2026, 8, 31)),
-        follow_up_weigh_ins: false,
-        as_of: d(2026, 12, 1),
-        height_cm: None,
-        high_bmi_checked: false,
-        low_bmi_checked: false,
+    let text = "date,weight,unit\n2026-03-31,72,kg\n2026-04-01,72,kg\n2026-09-01,71,kg\n2027-01-01,70,kg\n";
+    let read_in = |withdrew: Option<NaiveDate>| {
+        let mut diags = Vec::new();
+        let w = Window {
+            withdrew,
+            ..window()
+        };
+        let out = parse_weights(
+            text,
+            &CsvOptions::default(),
+            &ctx("weights.csv"),
+            &w,
+            &mut diags,
+        )
+        .unwrap();
+        diags.sort_by_key(|d| d.line);
+        (out, diags)
     };
-    let out = parse_weights(
-        "date,weight,unit\n2026-03-31,72,kg\n2026-04-01,72,kg\n2026-09-01,71,kg\n2027-01-01,70,kg\n",
-        &CsvOptions::default(),
-        &ctx("weights.csv"),
-        &w,
-        &mut diags,
-    )
-    .unwrap();
+    let (out, diags) = read_in(None);
+    assert_eq!(out.len(), 2);
+    assert_eq!(diags.len(), 2, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("before enrolment"),
+        "{}",
+        diags[0]
+    );
+    assert!(diags[1].message.contains("in the future"), "{}", diags[1]);
+    assert_eq!(diags[1].line, Some(5));
+    assert_eq!(diags[1].column, Some(1));
+    // After withdrawn consent, the rows after it, the one in the future included, are one
+    // warning at the first of them, which says nothing of their dates.
+    let (out, diags) = read_in(Some(d(2026, 8, 31)));
     assert_eq!(out.len(), 1);
-    assert_eq!(diags.len(), 3);
+    assert_eq!(diags.len(), 2, "{diags:#?}");
     assert!(
         diags[0].message.contains("before enrolment"),
         "{}",
         diags[0]
     );
     assert!(
-        diags[1].message.contains("after withdrawal"),
+        diags[1]
+            .message
+            .contains("after consent was withdrawn (2026-08-31)"),
         "{}",
         diags[1]
     );
-    assert!(diags[2].message.contains("in the future"), "{}", diags[2]);
-    assert_eq!(diags[2].line, Some(5));
-    assert_eq!(diags[2].column, Some(1));
+    assert_eq!((diags[1].line, diags[1].column), (Some(4), Some(1)));
 }
 
 /// Every withdrawal was read as withdrawn consent: a weigh-in after `withdrew` was dropped even
@@ -786,7 +801,7 @@ fn weigh_ins_after_withdrawal_are_read_only_for_someone_who_stopped_the_program(
             assert_eq!(diags.len(), 1, "{diags:#?}");
             assert_eq!(
                 diags[0].message,
-                "date 2026-09-14 is after withdrawal (2026-08-31); the row is dropped"
+                "rows dated after consent was withdrawn (2026-08-31) are not read: stop what adds them, remove them"
             );
             assert_eq!(diags[0].line, Some(4));
         }
@@ -802,11 +817,110 @@ fn weigh_ins_after_withdrawal_are_read_only_for_someone_who_stopped_the_program(
         assert_eq!(kcal.len(), 1, "stopped {stopped}: {kcal:?}");
         assert_eq!((kcal[0].date, kcal[0].kcal), (d(2026, 8, 31), 1900.0));
         assert_eq!(diags.len(), 1, "{diags:#?}");
-        assert!(
-            diags[0].message.contains("after withdrawal (2026-08-31)"),
-            "{}",
-            diags[0]
+        let said = if stopped {
+            "after withdrawal (2026-08-31)"
+        } else {
+            "after consent was withdrawn (2026-08-31)"
+        };
+        assert!(diags[0].message.contains(said), "{}", diags[0]);
+    }
+}
+
+/// A scale that kept syncing into the folder of someone who withdrew consent on 2026-06-15
+/// ended every later monthly run with exit code 1: "30 rows are dated after withdrawal
+/// (2026-06-15; 2026-06-16 to 2026-09-26, the first at this line)" in each file, every month,
+/// also in the participant's own report, and `weights_rows_in_file` counted those rows. Now
+/// only `check` and a run whose period does not begin after the withdrawal warn, with
+/// neither the number nor the dates of the rows, saying what to do; the rows are counted
+/// nowhere, and a row after it whose value does not read, or that repeats another, is not read
+/// or warned about either. Someone who stopped the program keeps their warning's figures (their
+/// data may be used), under the same once-only rule.
+#[test]
+fn rows_after_withdrawn_consent_are_warned_about_once_and_never_shown() {
+    // After the withdrawal: a weigh-in, one whose weight does not read, and a row repeated.
+    let text = "date,weight,unit\n2026-08-30,80,kg\n2026-09-14,79.1,kg\n2026-08-31,79.8,kg\n2026-10-02,78.4,kg\n2026-10-03,7x8.1,kg\n2026-10-02,78.4,kg\n";
+    let withdrawn = Window {
+        withdrew: Some(d(2026, 8, 31)),
+        ..window()
+    };
+    for (reported_from, warned) in [
+        (None, true),
+        (Some(d(2026, 8, 1)), true),
+        (Some(d(2026, 8, 31)), true),
+        (Some(d(2026, 9, 1)), false),
+        (Some(d(2026, 10, 1)), false),
+    ] {
+        let w = Window {
+            reported_from,
+            ..withdrawn
+        };
+        let c = ctx("weights.csv");
+        let mut diags = Vec::new();
+        let out = parse_weights(text, &CsvOptions::default(), &c, &w, &mut diags).unwrap();
+        let dates: Vec<_> = out.iter().map(|x| x.date).collect();
+        assert_eq!(dates, [d(2026, 8, 30), d(2026, 8, 31)], "{reported_from:?}");
+        assert_eq!(
+            c.rows_in_file(),
+            2,
+            "{reported_from:?}: rows after it are not counted"
         );
+        if !warned {
+            assert!(diags.is_empty(), "{reported_from:?}: {diags:#?}");
+            continue;
+        }
+        assert_eq!(diags.len(), 1, "{reported_from:?}: {diags:#?}");
+        let e = &diags[0];
+        assert_eq!(
+            (e.severity, e.line, e.column, e.field.as_deref()),
+            (Severity::Warning, Some(3), Some(1), Some("date"))
+        );
+        assert_eq!(
+            e.message,
+            "rows dated after consent was withdrawn (2026-08-31) are not read: stop what adds them, remove them"
+        );
+        assert_eq!(e.found.as_deref(), Some("rows dated after 2026-08-31"));
+        assert_eq!(
+            e.expected.as_deref(),
+            Some(
+                "no rows dated after 2026-08-31: the participant withdrew consent to the use of their data"
+            )
+        );
+        assert!(
+            e.hint
+                .as_deref()
+                .unwrap()
+                .contains("a scale or app that syncs into it")
+        );
+        // Nothing of the rows: not their dates, not their number, not their values.
+        let all = e.to_string();
+        for hidden in ["2026-09-14", "2026-10-02", "4 rows", "7x8.1"] {
+            assert!(!all.contains(hidden), "{hidden} in {all}");
+        }
+        assert!(is_after_withdrawn_consent(e));
+    }
+    // Someone who stopped the program: the food log after they left, with its figures, once.
+    let food = "date,kcal\n2026-08-31,1900\n2026-09-14,2100\n2026-09-15,2000\n";
+    for (reported_from, warned) in [(Some(d(2026, 8, 1)), true), (Some(d(2026, 9, 1)), false)] {
+        let w = Window {
+            follow_up_weigh_ins: true,
+            reported_from,
+            ..withdrawn
+        };
+        let c = ctx("intake.csv");
+        let mut diags = Vec::new();
+        let kcal = parse_intake(food, &CsvOptions::default(), &c, &w, &mut diags).unwrap();
+        assert_eq!(kcal.len(), 1);
+        assert_eq!(c.rows_in_file(), 1);
+        if warned {
+            assert_eq!(diags.len(), 1, "{diags:#?}");
+            assert_eq!(
+                diags[0].message,
+                "2 rows are dated after withdrawal (2026-08-31; 2026-09-14 to 2026-09-15, the first at this line); they are not counted"
+            );
+            assert!(!is_after_withdrawn_consent(&diags[0]));
+        } else {
+            assert!(diags.is_empty(), "{diags:#?}");
+        }
     }
 }
 
@@ -821,6 +935,7 @@ fn many_rows_after_the_as_of_date_are_one_warning() {
         withdrew: None,
         follow_up_weigh_ins: false,
         as_of: d(2026, 7, 1),
+        reported_from: None,
         height_cm: None,
         high_bmi_checked: false,
         low_bmi_checked: false,
