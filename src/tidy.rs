@@ -855,7 +855,8 @@ pub fn datapackage(
                 DpField::new("upper95", "number", "upper end of its 95 % interval"),
             ],
             &["participant_id", "module", "series", "week_start"],
-        ),
+        )
+        .joined_to_participants(),
         DpResource::new(
             "tables",
             "every module table in long form, one cell per line",
@@ -877,7 +878,8 @@ pub fn datapackage(
                 ),
             ],
             &["participant_id", "module", "table", "row", "column"],
-        ),
+        )
+        .joined_to_participants(),
         DpResource::new(
             "data-quality",
             "every problem found in the inputs, by participant, file and line",
@@ -1046,8 +1048,24 @@ impl DpResource {
                 fields,
                 missing_values: vec![""],
                 primary_key: key.to_vec(),
+                foreign_keys: Vec::new(),
             }),
         }
+    }
+
+    /// The same resource whose `participant_id` is one of `participants.csv`'s (a foreign
+    /// key): its rows join to the participant's row, and readers of the format check that.
+    fn joined_to_participants(mut self) -> Self {
+        if let Some(s) = self.schema.as_mut() {
+            s.foreign_keys.push(DpForeignKey {
+                fields: vec!["participant_id"],
+                reference: DpReference {
+                    resource: "participants",
+                    fields: vec!["participant_id"],
+                },
+            });
+        }
+        self
     }
 
     /// A JSON file (not tabular: no Table Schema).
@@ -1073,6 +1091,22 @@ struct DpSchema {
     missing_values: Vec<&'static str>,
     #[serde(skip_serializing_if = "Vec::is_empty")]
     primary_key: Vec<&'static str>,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    foreign_keys: Vec<DpForeignKey>,
+}
+
+/// A Table Schema foreign key: `fields` of this resource are `reference.fields` of another.
+#[derive(Serialize)]
+struct DpForeignKey {
+    fields: Vec<&'static str>,
+    reference: DpReference,
+}
+
+/// The resource and fields a foreign key points to.
+#[derive(Serialize)]
+struct DpReference {
+    resource: &'static str,
+    fields: Vec<&'static str>,
 }
 
 /// A Table Schema field descriptor.

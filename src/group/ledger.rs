@@ -566,11 +566,49 @@ impl Ledger {
     /// earlier releases. Person tokens depend on the participant id alone, so another
     /// program's people sharing the ledger only make the audit stricter.
     pub fn history(&self) -> History {
+        self.history_of(|_| true)
+    }
+
+    /// What every release but those of `program` for the period `from` to `to` (ISO dates)
+    /// published, or `None` when no release of that period is recorded: a run of a period
+    /// already released is first audited without its earlier issues, and keeps that result
+    /// when it is one of them ([`Ledger::issued`]).
+    pub fn history_without_period(&self, program: &str, from: &str, to: &str) -> Option<History> {
+        self.has_release(program, from, to).then(|| {
+            self.history_of(|r| {
+                !(r.program == program && r.period_from == from && r.period_to == to)
+            })
+        })
+    }
+
+    /// Whether a release of `program` for `from` to `to` published exactly `headline` and
+    /// `published` (every exact count with the people it counted, every sum with its values):
+    /// printing them again tells the sponsor nothing they have not had.
+    pub fn issued(
+        &self,
+        program: &str,
+        from: &str,
+        to: &str,
+        headline: &ReleaseLine,
+        published: &Published,
+    ) -> bool {
+        self.releases.iter().any(|r| {
+            r.program == program
+                && r.period_from == from
+                && r.period_to == to
+                && r.headline == *headline
+                && r.counts == published.counts
+                && r.count_labels == published.count_labels
+                && r.sums == published.sums
+        })
+    }
+
+    fn history_of(&self, keep: impl Fn(&ReleaseRecord) -> bool) -> History {
         let mut h = History {
             secret: Some(self.secret),
             ..Default::default()
         };
-        for r in &self.releases {
+        for r in self.releases.iter().filter(|r| keep(r)) {
             h.counts.extend(r.counts.iter().cloned());
             if r.count_labels.len() == r.counts.len() {
                 h.count_labels.extend(r.count_labels.iter().cloned());

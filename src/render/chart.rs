@@ -32,6 +32,10 @@ pub struct LineChart {
     pub vlines: Vec<VLine>,
     /// Text alternative for screen readers (SVG `<title>` and `aria-label`).
     pub alt_text: String,
+    /// Days the axis covers at least, whatever the series hold (`None`: the series' days
+    /// alone). The weight chart names the days it is for; without this, someone with no
+    /// weigh-in for months got an axis that ended at their last one.
+    pub x_span: Option<(NaiveDate, NaiveDate)>,
 }
 
 /// One line (or dot series) of dated values. A non-finite value is a gap: the line is not drawn
@@ -609,6 +613,10 @@ fn draw_line_chart<DB: DrawingBackend>(
             x1 = x1.max(s.to);
         }
     }
+    if let Some((from, to)) = c.x_span.filter(|(f, t)| f <= t) {
+        x0 = x0.min(from);
+        x1 = x1.max(to);
+    }
     if x0 == x1 {
         x0 -= Duration::days(3);
         x1 += Duration::days(3);
@@ -1135,6 +1143,7 @@ pub(crate) mod tests {
                 hlines: vec![],
                 vlines: vec![],
                 alt_text: format!("to {end}"),
+                x_span: None,
             });
             for width in [720, 380] {
                 let svg = to_svg(&chart, width, 300);
@@ -1222,6 +1231,7 @@ pub(crate) mod tests {
             }],
             vlines: vec![],
             alt_text: "Weight fell from 92 to 87.5 kg over 60 days & a plateau in March".into(),
+            x_span: None,
         })
     }
 
@@ -1269,6 +1279,7 @@ pub(crate) mod tests {
                 hlines: vec![],
                 vlines: vec![],
                 alt_text: String::new(),
+                x_span: None,
             })
         };
         let count = |svg: &str, tag: &str| svg.matches(tag).count();

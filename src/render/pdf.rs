@@ -1299,6 +1299,7 @@ pub(crate) mod tests {
             }],
             vlines: vec![],
             alt_text: "Weight fell from 94 to 88.5 kg over twelve weeks".into(),
+            x_span: None,
         })
     }
 

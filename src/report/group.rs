@@ -656,6 +656,7 @@ fn fill(
                 }],
                 vlines: vec![],
                 alt_text: alt.clone(),
+                x_span: None,
             }),
         ));
         view.charts.push(NamedChartView {

@@ -368,6 +368,7 @@ pub fn build(
                     }
                 }
             }),
+            !data.weights.iter().any(|w| w.date <= plan.period.to),
         ),
         summary: summary(
             &v,
@@ -528,6 +529,10 @@ fn summary(
         && let Some(bmi) = o.bmi_current_kg_m2
     {
         summary.push(Kv::new("BMI", &bmi_text(bmi, o.bmi_category_current)));
+    }
+    // Someone who has never weighed in: "Where you stand" was a heading over nothing.
+    if summary.is_empty() && last_weigh_in.is_none() {
+        summary.push(Kv::new("Weight", "no weigh-in recorded yet"));
     }
     summary
 }
@@ -817,6 +822,8 @@ fn headline(
     left: Option<(NaiveDate, bool)>,
     joined_recently: Option<NaiveDate>,
     weighs_in_enough: bool,
+    // No weigh-in up to the period's end at all (a food and activity log only).
+    no_weigh_in: bool,
 ) -> String {
     let status = trend.map_or(Status::InsufficientData, |t| t.status);
     let rate = trend.and_then(|t| t.slope_kg_per_week.value);
@@ -893,6 +900,11 @@ fn headline(
                 "You joined on {}, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it.",
                 fmt::date(e)
             ),
+            // No weigh-in at all (a food and activity log only): "too few recent
+            // weigh-ins" read as if some had been made.
+            None if no_weigh_in => {
+                "No weigh-in is recorded yet, so this report cannot show where your weight stands or how it is moving.".to_string()
+            }
             None => "There are too few recent weigh-ins to see how your weight moved over the last four weeks.".to_string(),
         },
     };
@@ -1143,9 +1155,18 @@ fn weight_chart(
         forecast_to,
     );
     if !has_trend {
+        // No weigh-in at all: "too few yet" stood above "No data for this period".
+        let none = v
+            .trend
+            .as_ref()
+            .is_some_and(|t| t.weigh_ins.points.is_empty());
         alt = alt.replacen(
             "weigh-ins, the smoothed trend with its 95 % band",
-            "weigh-ins (too few yet for a smoothed trend)",
+            if none {
+                "no weigh-in recorded yet"
+            } else {
+                "weigh-ins (too few yet for a smoothed trend)"
+            },
             1,
         );
     }
@@ -1227,6 +1248,10 @@ fn weight_chart(
         hlines,
         vlines,
         alt_text: alt.clone(),
+        // The days the description names: from the program's start or enrolment to the
+        // period's end (or the day they left). A last weigh-in months before it showed as an
+        // axis ending in April under "Weight chart for 1 Apr 2026 to 30 Sep 2026".
+        x_span: Some((plan.program.info.start.max(enrolled), to)),
     });
     (
         chart,
@@ -1455,7 +1480,16 @@ fn energy_section(
         items.push(Kv::new("Energy balance (implied)", &fmt::kcal_change(b)));
     }
     items.push(Kv::new("Resting-energy equation", e.rmr_equation.label()));
-    let how_total = if by_balance {
+    // No weight to estimate energy use from (no weigh-in yet): the words below spoke of "the
+    // total above" over the equation's name alone.
+    let no_energy_use = e.tdee_kcal_per_day.value.is_none()
+        && !e
+            .weekly_energy
+            .iter()
+            .any(|r| r.expenditure_kcal_per_day.is_some());
+    let how_total = if no_energy_use && e.rmr_kcal_per_day.value.is_none() {
+        "Energy use is estimated from your weight, and there is no weigh-in recorded yet, so no energy figure can be given this month.".to_string()
+    } else if by_balance {
         format!(
             "The total energy use above is measured over the {span} from your weight trend: the intake it implies minus the energy your weight change stored or released. The week-by-week energy use below is estimated from a published equation, your activity level and the activity you logged that week (net of what you would burn resting), so the two can differ."
         )
@@ -1474,9 +1508,23 @@ fn energy_section(
     } else {
         ""
     };
-    let mut explanation = format!(
-        "{how_total}{rest} The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard.{balance} Ranges are 95 % intervals."
-    );
+    // Said only where an implied intake is shown, above or in a week of the table: with too
+    // few weigh-ins for a trend the words explained a figure the report did not have.
+    let implied_words = if implied.is_some()
+        || e.weekly_energy
+            .iter()
+            .any(|r| r.implied_intake_kcal_per_day.is_some())
+    {
+        " The intake implied by your weight trend comes from a published model of how body weight responds to energy balance; it often differs from logged intake, because logging everything is hard."
+    } else {
+        ""
+    };
+    let ranges = if no_energy_use && e.rmr_kcal_per_day.value.is_none() {
+        ""
+    } else {
+        " Ranges are 95 % intervals."
+    };
+    let mut explanation = format!("{how_total}{rest}{implied_words}{balance}{ranges}");
     if let Some(left) = left_before {
         items.retain(|k| {
             k.label == "Resting energy (estimated)" || k.label == "Resting-energy equation"
@@ -1572,6 +1620,7 @@ fn energy_section(
         hlines: vec![],
         vlines: vec![],
         alt_text: alt,
+        x_span: None,
     }));
     let view = EnergyView {
         items,
@@ -2298,13 +2347,13 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-0.15);
-        let sparse = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let sparse = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             sparse,
             "Your weight has changed little over the last four weeks (about −0.15 kg/week); more \
              regular weigh-ins would show whether it has levelled off."
         );
-        let regular = headline(Some(&t), None, UnitSystem::Metric, None, None, true);
+        let regular = headline(Some(&t), None, UnitSystem::Metric, None, None, true, false);
         assert_eq!(
             regular,
             "Your weight has changed little over the last four weeks (about −0.15 kg/week), too \
@@ -2321,12 +2370,20 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-1.32);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             h,
             "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
         );
-        let h = headline(Some(&t), None, UnitSystem::UsCustomary, None, None, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::UsCustomary,
+            None,
+            None,
+            false,
+            false,
+        );
         assert!(h.contains("by about 2.91 lb/week"), "{h}");
     }
 
@@ -2345,7 +2402,7 @@ mod activity_unread_tests {
             lower: Some(3.82),
             upper: Some(6.75),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             h,
             "There are too few recent weigh-ins to see how your weight moved over the last four \
@@ -2370,13 +2427,13 @@ mod activity_unread_tests {
         assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
         // Not confirmed by the level test: nothing is said of a rise.
         t.regain_verdict = Some(RegainVerdict::NotRegaining);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert!(!h.contains("lowest point"), "{h}");
         // A rising slope already says so; the level sentence is not repeated.
         t.regain_verdict = Some(RegainVerdict::Regaining);
         t.status = Status::Regaining;
         t.slope_kg_per_week.value = Some(0.3);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert!(!h.contains("lowest point"), "{h}");
     }
 
@@ -2428,13 +2485,13 @@ mod activity_unread_tests {
             lower: Some(0.02),
             upper: Some(0.35),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             h,
             "Your weight has edged up over the last four weeks (+0.19 kg/week), slowly enough to count as a plateau."
         );
         t.status = Status::Stable;
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             h,
             "Your weight has been nearly stable over the last four weeks, edging up slowly (+0.19 kg/week)."
@@ -2442,7 +2499,7 @@ mod activity_unread_tests {
         // An interval that reaches zero: held steady, as before.
         t.status = Status::Plateau;
         t.slope_kg_per_week.lower = Some(-0.02);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
@@ -2463,20 +2520,20 @@ mod activity_unread_tests {
             lower: Some(-0.50),
             upper: Some(-0.28),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             h,
             "Your weight has edged down over the last four weeks (−0.39 kg/week), slowly enough to count as a plateau."
         );
         t.status = Status::Stable;
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             h,
             "Your weight has been nearly stable over the last four weeks, edging down slowly (−0.39 kg/week)."
         );
         t.status = Status::Plateau;
         t.slope_kg_per_week.upper = Some(0.02);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
@@ -2807,13 +2864,17 @@ mod activity_unread_tests {
             None,
             Some(joined),
             false,
+            false,
         );
         assert_eq!(
             h,
             "You joined on 20 Apr 2026, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it."
         );
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false);
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
         assert!(h.starts_with("There are too few recent weigh-ins"), "{h}");
+        // None at all: not "too few".
+        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, true);
+        assert!(h.starts_with("No weigh-in is recorded yet"), "{h}");
     }
 
     #[test]

@@ -119,6 +119,67 @@ pub fn check_package(metrics: &Path) -> Vec<String> {
             }
         }
     }
+    // Foreign keys: every value of a row's fields is a value of the referenced resource's
+    // fields (Table Schema v1, `foreignKeys`).
+    let resources = package["resources"].as_array().expect("resources");
+    let column = |resource: &str, names: &[&str]| -> Option<(String, Vec<Vec<String>>)> {
+        let res = resources.iter().find(|r| r["name"] == resource)?;
+        let path = res["path"].as_str()?.to_string();
+        let mut r = csv::Reader::from_path(metrics.join(&path)).ok()?;
+        let header: Vec<String> = r.headers().ok()?.iter().map(str::to_string).collect();
+        let idx: Vec<usize> = names
+            .iter()
+            .map(|n| header.iter().position(|h| h == n))
+            .collect::<Option<_>>()?;
+        let values = r
+            .records()
+            .map(|rec| {
+                let rec = rec.unwrap();
+                idx.iter().map(|&i| rec[i].to_string()).collect()
+            })
+            .collect();
+        Some((path, values))
+    };
+    let names_of = |v: &Value| -> Vec<String> {
+        match v {
+            Value::String(s) => vec![s.clone()],
+            Value::Array(a) => a.iter().map(|x| x.as_str().unwrap().to_string()).collect(),
+            other => panic!("foreign key fields: {other}"),
+        }
+    };
+    for res in resources {
+        for fk in res["schema"]["foreignKeys"]
+            .as_array()
+            .into_iter()
+            .flatten()
+        {
+            let own = names_of(&fk["fields"]);
+            let theirs = names_of(&fk["reference"]["fields"]);
+            let own_ref: Vec<&str> = own.iter().map(String::as_str).collect();
+            let theirs_ref: Vec<&str> = theirs.iter().map(String::as_str).collect();
+            let name = res["name"].as_str().unwrap();
+            let target = fk["reference"]["resource"]
+                .as_str()
+                .expect("reference.resource");
+            let (Some((path, rows)), Some((_, allowed))) =
+                (column(name, &own_ref), column(target, &theirs_ref))
+            else {
+                problems.push(format!(
+                    "{name}: foreign key {own:?} → {target} {theirs:?} names no such columns"
+                ));
+                continue;
+            };
+            let allowed: BTreeSet<Vec<String>> = allowed.into_iter().collect();
+            for (i, v) in rows.iter().enumerate() {
+                if !allowed.contains(v) {
+                    problems.push(format!(
+                        "{path}:{}: foreign key {v:?} is not in {target}",
+                        i + 2
+                    ));
+                }
+            }
+        }
+    }
     // Every file of the folder is described, but the descriptor itself.
     let files: BTreeSet<String> = std::fs::read_dir(metrics)
         .unwrap()
@@ -1052,5 +1113,46 @@ fn group_json_adherence_medians_are_named_as_the_participants_columns_they_summa
              period, attendance_to_date_percent since enrolment."
         ),
         "{description}"
+    );
+}
+
+/// An analyst joins `weekly.csv` and `tables.csv` to `participants.csv` by `participant_id`;
+/// the descriptor now says so as foreign keys, which a reader of the format checks (every id of
+/// those files is a participant of `participants.csv`). `data-quality.csv` has none: it also
+/// names folders that were left out (the sample's SG-049, without a profile).
+#[test]
+fn weekly_and_tables_rows_are_joined_to_participants_by_a_foreign_key() {
+    let package = read_json(&sample_metrics().join("datapackage.json"));
+    let fk = |name: &str| {
+        package["resources"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["name"] == name)
+            .unwrap()["schema"]["foreignKeys"]
+            .clone()
+    };
+    let expected = serde_json::json!([{
+        "fields": ["participant_id"],
+        "reference": { "resource": "participants", "fields": ["participant_id"] }
+    }]);
+    assert_eq!(fk("weekly"), expected);
+    assert_eq!(fk("tables"), expected);
+    assert!(fk("data-quality").is_null(), "{}", fk("data-quality"));
+
+    // The checker holds the files to them: a weekly row of someone not reported is found.
+    let (_tmp, metrics) = own_copy(sample_metrics());
+    assert_eq!(check_package(&metrics), Vec::<String>::new());
+    let weekly = metrics.join("weekly.csv");
+    let text = std::fs::read_to_string(&weekly).unwrap();
+    let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
+    lines[1] = format!("SG-049,{}", lines[1].split_once(',').unwrap().1);
+    std::fs::write(&weekly, lines.join("\n") + "\n").unwrap();
+    let problems = check_package(&metrics);
+    assert!(
+        problems
+            .iter()
+            .any(|p| p.starts_with("weekly.csv:2: foreign key [\"SG-049\"]")),
+        "{problems:?}"
     );
 }

@@ -452,6 +452,141 @@ fn the_weight_chart_of_someone_who_withdrew_is_described_to_that_day() {
     );
 }
 
+/// The September HTML report of a demo participant (SG-001) whose weigh-ins are cut to the
+/// first two, in early April: too few for a weight trend, so no implied intake either.
+fn report_with_two_april_weigh_ins() -> String {
+    let t = ProgramTest::demo(2);
+    let weights = t.dir.join("participants/SG-001/weights.csv");
+    let text = std::fs::read_to_string(&weights).unwrap();
+    let kept: Vec<&str> = text.lines().take(3).collect();
+    assert!(kept[1].starts_with("2026-04-0"), "{kept:?}");
+    std::fs::write(&weights, kept.join("\n") + "\n").unwrap();
+    let out = t.dir.parent().unwrap().join("out");
+    let out_s = out.to_string_lossy().into_owned();
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--period",
+        "2026-09",
+        "--as-of",
+        "2026-10-05",
+        "--out",
+        &out_s,
+        "--formats",
+        "html",
+    ]);
+    assert!(r.code <= 1, "{r:?}");
+    std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap()
+}
+
+/// Someone who keeps a food and activity log but has never weighed in got a report whose "Where
+/// you stand" was a heading over nothing, whose weight chart's description said "weigh-ins (too
+/// few yet for a smoothed trend)" above "No data for this period", whose headline spoke of "too
+/// few recent weigh-ins", and whose energy section showed the equation's name alone under the
+/// words "the total above covers this period". Each now says that no weigh-in is recorded yet.
+#[test]
+fn a_report_without_any_weigh_in_says_so_where_the_weight_would_be() {
+    let t = ProgramTest::demo(2);
+    std::fs::remove_file(t.dir.join("participants/SG-001/weights.csv")).unwrap();
+    let out = t.dir.parent().unwrap().join("out");
+    let out_s = out.to_string_lossy().into_owned();
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--period",
+        "2026-09",
+        "--as-of",
+        "2026-10-05",
+        "--out",
+        &out_s,
+        "--formats",
+        "html",
+    ]);
+    assert!(r.code <= 1, "{r:?}");
+    let html = std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap();
+    let section = |id: &str| {
+        let s = &html[html.find(&format!("aria-labelledby=\"{id}\"")).expect(id)..];
+        s[..s.find("</section>").expect("its end")].to_string()
+    };
+    let summary = section("h-summary");
+    assert!(summary.contains("no weigh-in recorded yet"), "{summary}");
+    let weight = section("h-weight");
+    assert!(!weight.contains("too few yet"), "{weight}");
+    assert!(weight.contains("no weigh-in recorded yet"), "{weight}");
+    let energy = section("h-energy");
+    assert!(!energy.contains("the total above"), "{energy}");
+    assert!(energy.contains("no weigh-in recorded yet"), "{energy}");
+    assert!(
+        !html.contains("There are too few recent weigh-ins"),
+        "the headline"
+    );
+    assert!(html.contains("No weigh-in is recorded yet"), "the headline");
+}
+
+/// The energy section's explanation said "The intake implied by your weight trend comes from a
+/// published model …; it often differs from logged intake" in a report that shows no implied
+/// intake anywhere, neither above nor in the weekly table (two weigh-ins: no trend). It now
+/// explains only what the section shows.
+#[test]
+fn the_energy_section_explains_an_implied_intake_only_where_it_shows_one() {
+    let html = report_with_two_april_weigh_ins();
+    let energy = &html[html
+        .find("aria-labelledby=\"h-energy\"")
+        .expect("energy section")..];
+    let energy = &energy[..energy.find("</section>").expect("its end")];
+    assert!(energy.contains("Resting energy (estimated)"), "{energy}");
+    assert!(!energy.contains("Intake implied by your weight trend"));
+    assert!(
+        !energy.contains("The intake implied by your weight trend comes from"),
+        "{energy}"
+    );
+    // The sample's SG-001 shows one, and keeps the words.
+    let sample = contexts().participants["SG-001"]
+        .energy
+        .as_ref()
+        .expect("energy section")
+        .explanation
+        .clone();
+    assert!(
+        sample.contains("The intake implied by your weight trend comes from"),
+        "{sample}"
+    );
+}
+
+/// Someone who weighed in twice in early April and not since got a September report whose
+/// weight chart's axis ran from 1 Apr to 10 Apr ("1 Apr", "8 Apr"), under the words "Weight
+/// chart for 1 Apr 2026 to 30 Sep 2026": five months without a weigh-in did not show, and the
+/// drawing read as a report on April. The axis now runs over the days the description names.
+#[test]
+fn the_weight_chart_runs_to_the_periods_end_without_recent_weigh_ins() {
+    let html = report_with_two_april_weigh_ins();
+    assert!(
+        html.contains("Weight chart for 1 Apr 2026 to 30 Sep 2026"),
+        "the description names the period"
+    );
+    // The weight chart is drawn first, wide and then narrow: each axis reaches September.
+    let svgs: Vec<&str> = html
+        .split("<svg")
+        .skip(1)
+        .map(|s| &s[..s.find("</svg>").unwrap()])
+        .filter(|s| s.contains("Weight chart for"))
+        .collect();
+    assert_eq!(svgs.len(), 2, "the weight chart, wide and narrow");
+    for svg in svgs {
+        let labels: Vec<&str> = svg
+            .split("<text")
+            .skip(1)
+            .filter_map(|s| Some(&s[s.find('>')? + 1..s.find("</text>")?]))
+            .collect();
+        assert!(
+            labels
+                .iter()
+                .any(|l| l.trim().ends_with(" Sep") || l.trim().ends_with(" Aug")),
+            "the axis reaches the period's end: {labels:?}"
+        );
+    }
+}
+
 /// Sample program, September 2026: SG-050's weekly implied intake stops after the week of 7 Sep
 /// as her loss grows fastest (the module withholds it), and the table read "–" with nothing
 /// saying why. SG-001's last week, after her last weigh-in on 26 Sep, has no trend to read and
