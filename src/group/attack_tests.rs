@@ -1612,3 +1612,293 @@ fn crossed_splits_do_not_give_away_a_site_and_team_group() {
     .unwrap();
     assert_eq!(attack(&bare), ["site B, team Y: 3 people, 3–3"]);
 }
+
+/// Three sites whose people all stop weighing in a few at a time: Aspen's 14 (two stop after
+/// week 8), Birch's 15 (three), Cedar's 16 (one), weighed weekly for 12 weeks, each person
+/// losing at a pace of their own around the site's.
+fn three_sites_some_stopped() -> Vec<Person> {
+    let sites = [
+        ("Aspen", 14, 2, -0.45),
+        ("Birch", 15, 3, -0.3),
+        ("Cedar", 16, 1, -0.15),
+    ];
+    let mut out = Vec::new();
+    let mut i = 0;
+    for (site, size, stopped, slope) in sites {
+        for k in 0..size {
+            let weeks = if k < stopped { 8 } else { 12 };
+            // A pace of one's own: the site's, ± up to 0.2 % a week, spread by a fixed cycle.
+            let own = slope + 0.1 * f64::from((i * 7 % 5) as u32) - 0.2;
+            let mut p = person(&format!("P{i:02}"), site, -3.0, true, -2.0);
+            p.row.weekly_change_percent = (0..weeks)
+                .map(|w| {
+                    (
+                        w,
+                        own * f64::from(w + 1) - 0.05 * f64::from((i * 3 % 4) as u32),
+                    )
+                })
+                .collect();
+            out.push(p);
+            i += 1;
+        }
+    }
+    out
+}
+
+/// What the weighted-mean identities leave of each site's n in week `w`: every assignment of
+/// whole numbers within the printed bands (the program's n their sum, within its band) that
+/// fits both Σ n_s (m_s − M) = 0 and the pooled variance, (N − 1) S² = Σ (n_s − 1) s_s² +
+/// Σ n_s (m_s − M)², each SD read off its printed 95 % interval (half-width t · s/√n), every
+/// printed figure taken as exact within its rounding (0.01). Per site: (label, number started,
+/// the n left). `None` when some figure is not printed.
+fn weigh_out_week(report: &Value, w: u64) -> Option<Vec<(String, u64, Vec<u64>)>> {
+    struct Fig {
+        band: (u64, u64),
+        mean: f64,
+        half: f64,
+    }
+    let fig = |st: &Value| -> Option<Fig> {
+        let p = st["trajectory"]
+            .as_array()?
+            .iter()
+            .find(|p| p["week"].as_u64() == Some(w))?;
+        let ci = &p["ci"]["value"];
+        Some(Fig {
+            band: read_count(&p["n"])?,
+            mean: p["mean_percent"]["value"].as_f64()?,
+            half: (ci["hi"].as_f64()? - ci["lo"].as_f64()?) / 2.0,
+        })
+    };
+    let prog = fig(&report["program"]["stats"])?;
+    let sections = report["splits"][0]["sections"].as_array()?;
+    let figs: Vec<Fig> = sections
+        .iter()
+        .map(|s| fig(&s["stats"]))
+        .collect::<Option<_>>()?;
+    let t = |n: u64| super::stats::t_quantile(0.975, (n.max(2) - 1) as f64);
+    // The pooled sum of squares a site adds, as bounds, for a given n.
+    let ss = |f: &Fig, n: u64| -> (f64, f64) {
+        let nf = n as f64;
+        let s_lo = (f.half - 0.005).max(0.0) * nf.sqrt() / t(n);
+        let s_hi = (f.half + 0.005) * nf.sqrt() / t(n);
+        let d = (f.mean - prog.mean).abs();
+        let (d_lo, d_hi) = ((d - 0.01).max(0.0), d + 0.01);
+        (
+            (nf - 1.0) * s_lo * s_lo + nf * d_lo * d_lo,
+            (nf - 1.0) * s_hi * s_hi + nf * d_hi * d_hi,
+        )
+    };
+    let mut left = vec![std::collections::BTreeSet::new(); figs.len()];
+    let mut ns = vec![0u64; figs.len()];
+    fn each(figs: &[(u64, u64)], k: usize, ns: &mut Vec<u64>, f: &mut dyn FnMut(&[u64])) {
+        if k == figs.len() {
+            f(ns);
+            return;
+        }
+        for v in figs[k].0..=figs[k].1 {
+            ns[k] = v;
+            each(figs, k + 1, ns, f);
+        }
+    }
+    let bands: Vec<(u64, u64)> = figs.iter().map(|f| f.band).collect();
+    each(&bands, 0, &mut ns, &mut |ns| {
+        let n: u64 = ns.iter().sum();
+        if n < prog.band.0 || n > prog.band.1 {
+            return;
+        }
+        let off: f64 = ns
+            .iter()
+            .zip(&figs)
+            .map(|(&k, f)| k as f64 * (f.mean - prog.mean))
+            .sum();
+        if off.abs() > 0.01 * n as f64 + 1e-9 {
+            return;
+        }
+        let (lo, hi) = ns
+            .iter()
+            .zip(&figs)
+            .map(|(&k, f)| ss(f, k))
+            .fold((0.0, 0.0), |a, b| (a.0 + b.0, a.1 + b.1));
+        let nf = n as f64;
+        let s_lo = (prog.half - 0.005).max(0.0) * nf.sqrt() / t(n);
+        let s_hi = (prog.half + 0.005) * nf.sqrt() / t(n);
+        if (nf - 1.0) * s_lo * s_lo > hi + 1e-9 || lo > (nf - 1.0) * s_hi * s_hi + 1e-9 {
+            return;
+        }
+        for (k, &v) in ns.iter().enumerate() {
+            left[k].insert(v);
+        }
+    });
+    Some(
+        sections
+            .iter()
+            .zip(left)
+            .map(|(s, l)| {
+                (
+                    s["label"].as_str().unwrap_or_default().to_string(),
+                    s["stats"]["enrolment"]["started"]["value"]
+                        .as_u64()
+                        .unwrap_or(0),
+                    l.into_iter().collect(),
+                )
+            })
+            .collect(),
+    )
+}
+
+/// The weighted-mean identities with three sites whose n are all bands. The mean identity is
+/// one equation in three unknowns, but the pooled variance is a second, and with sites of 14 to
+/// 16 people the bands leave few whole numbers to try: before, nothing was withheld when three
+/// or more sections' n were bands, and the attacker below read Aspen's n in weeks 9–12 as 11
+/// or 12 of 14 (two had stopped) and Cedar's as 14 or 15 of 16 (one). The attacker must
+/// narrow no site's shortfall of
+/// 1 … min − 1 to fewer than three values.
+#[test]
+fn week_means_of_three_banded_sites_do_not_weigh_out_who_stopped() {
+    let min: u64 = 11;
+    let people = three_sites_some_stopped();
+    let release = publish_in_order(std::slice::from_ref(&people), min as u32);
+    let report = &release[0].report;
+    let attack = |report: &Value| -> Vec<String> {
+        let mut found = Vec::new();
+        for w in 0..12 {
+            for (label, started, left) in weigh_out_week(report, w).unwrap_or_default() {
+                let short: Vec<u64> = left.iter().map(|n| started - n).collect();
+                if !left.is_empty() && left.len() < 3 && short.iter().any(|s| (1..min).contains(s))
+                {
+                    found.push(format!(
+                        "{label} week {}: n in {left:?} of {started}",
+                        w + 1
+                    ));
+                }
+            }
+        }
+        found
+    };
+    let found = attack(report);
+    assert!(found.is_empty(), "{found:#?}");
+    // The preconditions: three site sections with their n as bands in weeks 9–12, and the
+    // program's means shown there.
+    let sites = report["splits"][0]["sections"].as_array().unwrap();
+    assert_eq!(sites.len(), 3);
+    for w in 8..12 {
+        assert!(
+            report["program"]["stats"]["trajectory"][w]["mean_percent"]
+                .get("value")
+                .is_some()
+        );
+        for s in sites {
+            let n = read_count(&s["stats"]["trajectory"][w]["n"]).unwrap();
+            assert!(n.0 < n.1, "{}: week {} n {n:?}", s["label"], w + 1);
+        }
+    }
+}
+
+/// The same attack over two releases: three people enrol late at Aspen (14 → 17 started), so
+/// the section with the fewest people started is Birch in the second release, while weeks
+/// 9–12 hold the same people and values in both (the newcomers have only weeks 1–2). Were
+/// the first release to withhold Aspen's means and the second Birch's, a sponsor holding both
+/// would read every site's mean of those weeks. The attacker takes each figure of each week
+/// from whichever release prints it (the bands intersected).
+#[test]
+fn week_means_of_three_banded_sites_across_releases_do_not_weigh_out_who_stopped() {
+    let min: u64 = 11;
+    let first = three_sites_some_stopped();
+    let mut second = first.clone();
+    for i in 45..48 {
+        let mut p = person(&format!("P{i:02}"), "Aspen", -1.0, true, -1.0);
+        p.row.weekly_change_percent = (0..2).map(|w| (w, -0.3 * f64::from(w + 1))).collect();
+        second.push(p);
+    }
+    let releases = publish_in_order(&[first, second], min as u32);
+    // One report holding, per section and week, whatever either release prints.
+    let mut merged = releases[1].report.clone();
+    let earlier = &releases[0].report;
+    fn take_missing(now: &mut Value, old: &Value) {
+        for p in now.as_array_mut().unwrap() {
+            let Some(o) = old
+                .as_array()
+                .unwrap()
+                .iter()
+                .find(|o| o["week"] == p["week"])
+            else {
+                continue;
+            };
+            if p["mean_percent"].get("value").is_none() && o["mean_percent"].get("value").is_some()
+            {
+                p["mean_percent"] = o["mean_percent"].clone();
+                p["ci"] = o["ci"].clone();
+            }
+            let (a, b) = (read_count(&p["n"]), read_count(&o["n"]));
+            if let Some((a, b)) = a.or(b).zip(b.or(a)) {
+                let (lo, hi) = (a.0.max(b.0), a.1.min(b.1));
+                p["n"] = if lo == hi {
+                    serde_json::json!({ "value": lo })
+                } else {
+                    serde_json::json!({ "suppressed": true, "at_least": lo, "at_most": hi })
+                };
+            }
+        }
+    }
+    take_missing(
+        &mut merged["program"]["stats"]["trajectory"],
+        &earlier["program"]["stats"]["trajectory"],
+    );
+    for s in merged["splits"][0]["sections"].as_array_mut().unwrap() {
+        let old = earlier["splits"][0]["sections"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|o| o["label"] == s["label"])
+            .expect("the same sites");
+        take_missing(&mut s["stats"]["trajectory"], &old["stats"]["trajectory"]);
+    }
+    let mut found = Vec::new();
+    for w in 8..12 {
+        for (label, started, left) in weigh_out_week(&merged, w).unwrap_or_default() {
+            // Aspen's number started differs between the releases: its shortfall in the
+            // first, 14 − n.
+            let started = if label == "Aspen" { 14 } else { started };
+            let short: Vec<u64> = left.iter().map(|n| started - n).collect();
+            if !left.is_empty() && left.len() < 3 && short.iter().any(|s| (1..min).contains(s)) {
+                found.push(format!(
+                    "{label} week {}: n in {left:?} of {started}",
+                    w + 1
+                ));
+            }
+        }
+    }
+    assert!(found.is_empty(), "{found:#?}");
+    // The precondition: the first release withholds Aspen's means of weeks 9–12 and prints
+    // Birch's.
+    let site = |r: &Value, label: &str| -> Value {
+        r["splits"][0]["sections"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|s| s["label"] == label)
+            .unwrap()["stats"]
+            .clone()
+    };
+    for w in 8..12 {
+        assert!(
+            site(earlier, "Aspen")["trajectory"][w]["mean_percent"]
+                .get("value")
+                .is_none()
+        );
+        assert!(
+            site(earlier, "Birch")["trajectory"][w]["mean_percent"]
+                .get("value")
+                .is_some()
+        );
+    }
+    // And the second release's smallest site by number started is Birch: Aspen's 17 is
+    // printed only as a range (3 more than the 14 printed before).
+    let second = &releases[1].report;
+    assert_eq!(site(second, "Birch")["enrolment"]["started"]["value"], 15);
+    assert!(
+        site(second, "Aspen")["enrolment"]["started"]
+            .get("value")
+            .is_none()
+    );
+}

@@ -35,7 +35,7 @@
 //! combined section would hold every value, the split is not shown at all (it would repeat the
 //! program). A program with fewer than `min_cell_size` started is withheld entirely.
 
-use std::collections::{BTreeMap, BTreeSet, HashMap};
+use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 
 use serde::Serialize;
 
@@ -1093,6 +1093,16 @@ pub(super) fn build(
     let mut audit_notes: Vec<AuditNote> = Vec::new();
     let mut published = Published::default();
     let mut withdrawn: HashMap<*const Draft, BTreeSet<Line>> = HashMap::new();
+    // Where each shown section's week sum went in `published.sums`, by (section, week): a
+    // week mean the weighted-mean audit withholds afterwards is taken out again.
+    let mut week_sum_at: HashMap<(*const Draft, u32), usize> = HashMap::new();
+    // The people of every sum earlier releases printed (the ledger's), for
+    // [`audit_week_means`]: a section's week whose people were summed before may be known.
+    let printed_before: HashSet<BTreeSet<u64>> = history
+        .sums
+        .iter()
+        .map(|s| s.iter().map(|&(p, _)| p).collect())
+        .collect();
     // What a reader knows of each shown section's weekly n before it is printed (in the order
     // of `weeks`), once the counts are settled.
     let mut week_bounds: HashMap<*const Draft, Vec<WeekBounds>> = HashMap::new();
@@ -1445,6 +1455,9 @@ pub(super) fn build(
         for (j, (d, line, label, atoms)) in owners.into_iter().enumerate() {
             if keep[first_new + j] {
                 if !atoms.is_empty() {
+                    if let Line::Week(w) = line {
+                        week_sum_at.insert((d, w), published.sums.len());
+                    }
                     published.sums.push(atoms);
                 }
             } else {
@@ -1504,6 +1517,19 @@ pub(super) fn build(
                     .iter()
                     .map(|&w| lines.is_some_and(|l| l.contains(&Line::Week(w))))
                     .collect(),
+                known: weeks
+                    .iter()
+                    .map(|w| {
+                        let people: BTreeSet<u64> = raw
+                            .week_idx
+                            .get(w)
+                            .into_iter()
+                            .flatten()
+                            .map(|&i| tokens[i])
+                            .collect();
+                        !people.is_empty() && printed_before.contains(&people)
+                    })
+                    .collect(),
                 mean: weeks
                     .iter()
                     .enumerate()
@@ -1551,6 +1577,20 @@ pub(super) fn build(
         HashMap::new()
     };
 
+    // A withheld week mean is not published: the ledger must not count it as known (the
+    // audit's choice of which mean to withhold next time rests on what was printed).
+    let unpublished: BTreeSet<usize> = mean_withheld
+        .iter()
+        .filter_map(|key| week_sum_at.get(key).copied())
+        .collect();
+    if !unpublished.is_empty() {
+        published.sums = std::mem::take(&mut published.sums)
+            .into_iter()
+            .enumerate()
+            .filter(|(i, _)| !unpublished.contains(i))
+            .map(|(_, s)| s)
+            .collect();
+    }
     for &(d, w) in &mean_withheld {
         let draft = std::iter::once(&program)
             .chain(splits.iter().flat_map(|(_, drafts, _)| drafts.iter()))
@@ -1560,11 +1600,10 @@ pub(super) fn build(
             audit_notes.push(AuditNote {
                 section: draft.label.clone(),
                 figure: Line::Week(w).name(),
-                rule: format!(
-                    "Not shown, because with the other sections' means and the whole \
-                     program's it would give how many people the week counts, and so how many \
-                     (fewer than {min}) stopped"
-                ),
+                rule: "Not shown, because with the other sections' means and the whole \
+                       program's it could give how many people the week counts where a section \
+                       shows that number only as a range, and so how many stopped"
+                    .into(),
             });
         }
     }
@@ -1689,6 +1728,9 @@ struct WeekSection {
     withdrawn: Vec<bool>,
     /// Each week's mean as printed (rounded to [`MEAN_STEP`]), `None` where it is not printed.
     mean: Vec<Option<f64>>,
+    /// Whether an earlier release printed a sum over exactly each week's people (this week's
+    /// mean, or another figure of the same people): its mean may be known to the reader.
+    known: Vec<bool>,
 }
 
 /// The weeks' n that must not be printed although [`week_count`] would print them, as
@@ -1816,15 +1858,27 @@ fn audit_week_bands(
 /// Harbour Depot fit the means, one or two people who stopped (and the intervals gave the same
 /// in weeks 11 to 13, which the means alone left at three values); in a 40-person demo (the
 /// site groups "combined", 22 started, beside Kiln Row, 18, all weighing in) the means gave the
-/// combined group's n exactly, 21: one person had stopped. The second identity is not linear
-/// in the n, so it is not solved; it is counted: wherever a split's sections (two or more with
-/// people that week; one with nobody adds nothing) all print their mean beside the program's
-/// and one or two of them print their n only as a band (or not at all) — two identities, at
-/// most two unknowns — the mean of the split's section with the fewest people started is
-/// withheld. Without one section's mean both identities have an unknown more. With three or
-/// more sections of unknown n the identities leave a family of solutions, and nothing is
-/// withheld (in the 300-person test of three sites of about 100, every site's weeks 9 to 26
-/// would otherwise have lost their means); that case is not checked exactly.
+/// combined group's n exactly, 21: one person had stopped. Nor are three or more unknown n
+/// safe: the two identities leave a family of solutions, but with small sections the bands
+/// hold few whole numbers, and three sites of 14, 15 and 16 started, all banded, gave Aspen's
+/// n as 11 or 12 of 14 and Cedar's as 14 or 15 of 16 (a demo of 45 in three such sites, its
+/// September: Birch's week 24 exactly, 11 of 15). The second identity is not linear in the n,
+/// so it is not solved; the rule rests on what the reader sees: wherever a split's sections
+/// (two or more with people that week; one with nobody adds nothing) all print their mean
+/// beside the program's and any of them prints its n only as a band (or not at all), the mean
+/// of the split's section with the fewest people started is withheld. Without one section's
+/// mean (and its interval) both identities have an unknown more, a real number free to take up
+/// any n. The cost: in the 300-person test of three sites of about 100, the smallest site's
+/// weeks 9 to 26 (everyone's n a band) lose their means.
+///
+/// The section withheld must stay withheld in later releases, whose figures for a past week
+/// are those of the same people: three late enrolees at the smallest site made another the
+/// smallest, and the two releases together printed every site's mean of weeks 9–12 (Aspen 11
+/// or 12 of 14 again). So a section whose week's people an earlier release summed (the
+/// ledger's sums: that week's mean, or any figure of exactly those people) is withheld only
+/// when every section's were; among the others, the one with the fewest people started as
+/// printed (a hidden number started is not used: the choice would tell which hidden count is
+/// the smaller). A withheld mean is not recorded in the ledger as published.
 fn audit_week_means(
     sections: &[WeekSection],
     parts: &[Vec<usize>],
@@ -1851,17 +1905,19 @@ fn audit_week_means(
                 .filter(|&i| sections[i].n[w] > 0)
                 .collect();
             let open = with.iter().filter(|&&i| !exact(i, w)).count();
-            if with.len() < 2
-                || with.iter().any(|&i| sections[i].mean[w].is_none())
-                || open == 0
-                || open > 2
-            {
+            if with.len() < 2 || with.iter().any(|&i| sections[i].mean[w].is_none()) || open == 0 {
                 continue;
             }
+            // A section whose week an earlier release may have printed is not the one
+            // withheld while another will do: withholding it now and printing, beside it, a
+            // mean withheld before would give the reader every mean of the week.
             let take = with
                 .iter()
                 .copied()
-                .min_by_key(|&i| (sections[i].started.unwrap_or(sections[i].enrolled), i))
+                .min_by_key(|&i| {
+                    let s = &sections[i];
+                    (s.known[w], s.started.unwrap_or(u64::MAX), i)
+                })
                 .expect("not empty");
             out.push((take, w));
         }

@@ -26,9 +26,11 @@
 //!    hides at least one more cell, so the loop ends.
 //!
 //! The complement is the shown member with the lowest *priority* (callers rank cells so that
-//! key denominators such as "started" survive), then the smallest value ("next-smallest cell",
-//! the usual complementary-suppression rule; common practice), preferring non-zero cells (a
-//! hidden zero protects little). A shown 0 is taken only where no non-zero cell is left to
+//! key denominators such as "started" survive), then the first registered, preferring non-zero
+//! cells (a hidden zero protects little). Not the smallest value, the usual "next-smallest
+//! cell" rule (common practice): the algorithm is published, and a complement known to be the
+//! smallest candidate is known to be no larger than any candidate left shown, a bound that
+//! narrowed the small cell beside it ([`CellTable::rank`]). A shown 0 is taken only where no non-zero cell is left to
 //! take: a guarded zero found from shown zeros alone (its program's count 0, every other
 //! section's 0) can only be covered by one of them.
 
@@ -252,13 +254,16 @@ impl CellTable {
     }
 
     /// Order in which shown cells are taken as complements (least first): a kept cell last,
-    /// then a headline cell while `protect` is set, then non-zero before zero, then cost, value
-    /// and id.
-    fn rank(&self, c: CellId) -> (bool, bool, bool, u8, u64, CellId) {
+    /// then a headline cell while `protect` is set, then non-zero before zero, then cost and
+    /// id. Not the value: a complement taken as the smallest candidate is known to be no larger
+    /// than any candidate left shown, and that bound narrowed the small cell beside it
+    /// (`[10, 11, 11 | 32]`: hidden 10 and 11, the other 11 shown, so the two hidden cells
+    /// were 10 + 11 or 11 + 10, and the small one 10 or 11).
+    fn rank(&self, c: CellId) -> (bool, bool, bool, u8, CellId) {
         let cell = &self.cells[c];
         let cost = self.cost(c);
         let headline = self.protect && self.headline_rank.is_some_and(|h| cost >= h);
-        (self.kept(c), headline, cell.value == 0, cost, cell.value, c)
+        (self.kept(c), headline, cell.value == 0, cost, c)
     }
 
     /// Recomputes each cell's cost for `protect`. A relation whose members other than two
@@ -802,12 +807,20 @@ impl CellTable {
         }
     }
 
-    /// The bounds a hidden cell's variable has in the range programs.
+    /// The bounds a hidden cell's variable has in the range programs. For the narrowness
+    /// check, a hidden cell that is not 0 is at least 1: zeros are shown, and the complements
+    /// are non-zero cells wherever one is left, so a reader takes a hidden cell for 1 or more.
+    /// Two small cells of one row, hidden beside its shown total and its other shown cell,
+    /// [1, 21, 1 | 23], held 2 together and printed "0–2" each, but were 1 each. (The printed
+    /// ranges keep 0: a hidden zero is possible, and a looser range tells nothing.)
     fn box_of(&self, c: CellId, min_cell_size: u32) -> (f64, f64) {
+        let nonzero = !self.printing && self.cells[c].value != 0 && !self.cells[c].phantom;
         if let Some((lo, hi)) = self.cells[c].band {
-            (lo as f64, hi as f64)
+            ((lo.max(u64::from(nonzero))) as f64, hi as f64)
         } else if !self.printing && self.is_primary(c, min_cell_size) && !self.cells[c].unbounded {
             (1.0, f64::from(min_cell_size) - 1.0)
+        } else if nonzero {
+            (1.0, f64::INFINITY)
         } else {
             (0.0, f64::INFINITY)
         }
@@ -1205,12 +1218,7 @@ impl CellTable {
         let rank = |c: CellId| self.rank(c);
         // Whether the candidate is kept, (highest rank hidden, cells hidden), the candidate's
         // own rank, the candidate: a kept cell only when every candidate is.
-        type Choice = (
-            bool,
-            (u8, usize),
-            (bool, bool, bool, u8, u64, CellId),
-            CellId,
-        );
+        type Choice = (bool, (u8, usize), (bool, bool, bool, u8, CellId), CellId);
         let mut best: Option<Choice> = None;
         for c in candidates {
             let key = (self.kept(c), self.cascade(c), rank(c), c);
@@ -1257,9 +1265,9 @@ impl CellTable {
         (top, count)
     }
 
-    /// The shown member of the given relations to hide next: lowest priority, then smallest
-    /// value, preferring non-zero values; ties go to the lowest id so runs are reproducible
-    /// ([`CellTable::rank`]: while `protect` is set, headline counts last and by cost).
+    /// The shown member of the given relations to hide next: lowest priority, preferring
+    /// non-zero values, then the lowest id, never the value ([`CellTable::rank`]: while
+    /// `protect` is set, headline counts last and by cost).
     fn best_complement(&self, relations: &[usize]) -> Option<CellId> {
         relations
             .iter()
@@ -1269,7 +1277,7 @@ impl CellTable {
     }
 
     /// The complement for a determined cell `u` ([`CellTable::apply`]): the cell of lowest
-    /// complement rank (then nearest `u`, then smallest) among the shown non-zero cells of the
+    /// complement rank (then nearest `u`, then first registered) among the shown non-zero cells of the
     /// relations reached from `u` through hidden cells, whose hiding leaves `u` undetermined;
     /// when no cell ranked below [`CellTable::complement_near`]'s choice does, that choice.
     /// Searching only the relations next to `u` had hidden, for a site's "reached 10 % loss"
@@ -1288,7 +1296,7 @@ impl CellTable {
         let mut seen_rel = vec![false; self.relations.len()];
         let mut frontier = vec![u];
         seen_cells[u] = true;
-        let mut candidates: Vec<(u8, usize, u64, CellId)> = Vec::new();
+        let mut candidates: Vec<(u8, usize, CellId)> = Vec::new();
         let mut level = 0;
         while !frontier.is_empty() {
             let rels: Vec<usize> = (0..self.relations.len())
@@ -1308,7 +1316,7 @@ impl CellTable {
                     if c.suppressed {
                         next.push(m);
                     } else if c.value != 0 && self.cost(m) < bar && !self.kept(m) {
-                        candidates.push((self.cost(m), level, c.value, m));
+                        candidates.push((self.cost(m), level, m));
                     }
                 }
             }
@@ -1317,7 +1325,7 @@ impl CellTable {
         }
         candidates.sort_unstable();
         let mut trial = suppressed.to_vec();
-        for &(_, _, _, c) in candidates.iter().take(64) {
+        for &(_, _, c) in candidates.iter().take(64) {
             let hidden = trial.iter().filter(|&&h| h).count() as f64 + 1.0;
             if !self.spend(self.relations.len() as f64 * hidden * hidden) {
                 return Some(near);
@@ -1574,9 +1582,18 @@ mod tests {
     }
 
     /// One section's plateau counts: enrolled = with a verdict + too little data, with a
-    /// verdict = on a plateau + not, each share given its group.
+    /// verdict = on a plateau + not, each share given its group; each cell of the rank the
+    /// group report gives it (`Kind::priority`: enrolled 3, with a verdict 2, on a plateau or
+    /// not 1, too little data 0).
     fn plateau_section(t: &mut CellTable, counts: [u64; 5]) -> [CellId; 5] {
-        let [enrolled, verdict, insufficient, yes, no] = counts.map(|v| t.add_cell(v, 1));
+        let [enrolled, verdict, insufficient, yes, no] = [
+            (counts[0], 3),
+            (counts[1], 2),
+            (counts[2], 0),
+            (counts[3], 1),
+            (counts[4], 1),
+        ]
+        .map(|(v, p)| t.add_cell(v, p));
         t.add_relation(enrolled, vec![verdict, insufficient]);
         t.add_relation(verdict, vec![yes, no]);
         for c in [verdict, insufficient] {
@@ -1903,6 +1920,153 @@ mod tests {
         let (small, other) = (t.seen[parts[0]], t.seen[parts[1]]);
         assert!(small.0 >= 1.0 && small.1 <= 10.0, "{small:?}");
         assert!(other.0 >= 3.0 && other.1 <= 12.0, "{other:?}");
+    }
+
+    /// A reader who knows that the complement is the smallest shown candidate knows it is no
+    /// larger than any candidate left shown. [10, 11, 11 | 32], min 11: the 10 is hidden, the
+    /// first 11 is its complement, the second stays shown; the two hidden cells hold 21, and a
+    /// complement of 11 or less beside a small cell of 10 or less leaves only 10 + 11 or
+    /// 11 + 10: the small cell was 10 or 11. The complement's choice must rest on nothing the
+    /// reader cannot see.
+    #[test]
+    fn the_choice_of_complement_does_not_tell_a_reader_the_hidden_values() {
+        for parts in [
+            &[10, 11, 11][..],
+            &[11, 10, 11],
+            &[10, 11, 12, 11],
+            &[9, 11, 12, 11],
+        ] {
+            let parts = parts.to_vec();
+            let seen = reader_values(&parts, 11);
+            for (c, &v) in parts.iter().enumerate() {
+                if (1..11).contains(&v) {
+                    assert!(
+                        seen[c].len() >= 3,
+                        "{parts:?}: cell {c} ({v}) narrowed to {:?}",
+                        seen[c]
+                    );
+                }
+            }
+        }
+    }
+
+    /// A 2 × 3 table with its row, column and grand totals (cells 0–5 the inner cells by row,
+    /// 6–7 the rows, 8–10 the columns, 11 the whole), every cell of one rank.
+    fn cross(v: &[u64]) -> CellTable {
+        let mut t = CellTable::new();
+        let inner: Vec<CellId> = v.iter().map(|&x| t.add_cell(x, 0)).collect();
+        let rows: Vec<CellId> = (0..2)
+            .map(|r| t.add_cell(v[3 * r..3 * r + 3].iter().sum(), 1))
+            .collect();
+        let cols: Vec<CellId> = (0..3).map(|c| t.add_cell(v[c] + v[c + 3], 1)).collect();
+        let all = t.add_cell(v.iter().sum(), 2);
+        for r in 0..2 {
+            t.add_relation(rows[r], inner[3 * r..3 * r + 3].to_vec());
+        }
+        for c in 0..3 {
+            t.add_relation(cols[c], vec![inner[c], inner[c + 3]]);
+        }
+        t.add_relation(all, rows);
+        t.add_relation(all, cols);
+        t
+    }
+
+    /// What a reader who knows the algorithm can tell of each inner cell of [`cross`]: every
+    /// assignment of the hidden cells (0 … the whole each) that meets the relations is run
+    /// through the suppression and kept when it prints what the truth printed.
+    fn cross_reader(v: &[u64], min: u32) -> Vec<std::collections::BTreeSet<u64>> {
+        let printed = |values: &[u64]| {
+            let mut t = cross(values);
+            let ranges = t.apply_with_ranges(min);
+            let hidden: Vec<bool> = (0..t.len()).map(|c| t.is_suppressed(c)).collect();
+            (hidden, ranges)
+        };
+        let truth = printed(v);
+        let full = cross(v);
+        let shown: Vec<Option<u64>> = (0..full.len())
+            .map(|c| (!truth.0[c]).then(|| full.value(c)))
+            .collect();
+        let whole = full.value(full.len() - 1);
+        let mut out = vec![std::collections::BTreeSet::new(); v.len()];
+        let mut x: Vec<Option<u64>> = shown.clone();
+        fn go(
+            k: usize,
+            x: &mut Vec<Option<u64>>,
+            shown: &[Option<u64>],
+            whole: u64,
+            rels: &[Relation],
+            f: &mut dyn FnMut(&[u64]),
+        ) {
+            // Every relation whose members are all known must hold.
+            for r in rels {
+                let vals: Option<Vec<u64>> = r.members().map(|m| x[m]).collect();
+                if let Some(vals) = vals
+                    && vals[0] != vals[1..].iter().sum::<u64>()
+                {
+                    return;
+                }
+            }
+            if k == x.len() {
+                let vals: Vec<u64> = x.iter().map(|v| v.expect("assigned")).collect();
+                f(&vals);
+                return;
+            }
+            if shown[k].is_some() {
+                return go(k + 1, x, shown, whole, rels, f);
+            }
+            // No part exceeds a shown total it is part of.
+            let cap = rels
+                .iter()
+                .filter(|r| r.parts.contains(&k))
+                .filter_map(|r| shown[r.total])
+                .min()
+                .unwrap_or(whole);
+            for val in 0..=cap {
+                x[k] = Some(val);
+                go(k + 1, x, shown, whole, rels, f);
+            }
+            x[k] = None;
+        }
+        let rels = full.relations().to_vec();
+        go(0, &mut x, &shown, whole, &rels, &mut |vals| {
+            if printed(&vals[..6]) == truth {
+                for (c, &val) in vals[..6].iter().enumerate() {
+                    out[c].insert(val);
+                }
+            }
+        });
+        out
+    }
+
+    /// Small cross tables (random inner cells 0 … 24, min 11) read by the algorithm-aware
+    /// reader: no small inner cell is left with fewer than three values.
+    #[test]
+    fn an_algorithm_aware_reader_of_cross_tables_narrows_no_small_cell() {
+        let mut seed = 0x2545_f491_4f6c_dd1du64;
+        let mut next = || {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            seed
+        };
+        let mut found = Vec::new();
+        // The first: two small cells of one row hidden beside its shown total and other cell
+        // ([1, 21, 1 | 23]) held 2 together and were printed "0–2" each; a reader who knows
+        // that zeros are shown took them for 1 each.
+        let mut tables = vec![vec![1, 21, 1, 9, 11, 18]];
+        tables.extend((0..12).map(|_| (0..6).map(|_| next() % 25).collect::<Vec<u64>>()));
+        for v in tables {
+            if !v.iter().any(|x| (1..11).contains(x)) {
+                continue;
+            }
+            let seen = cross_reader(&v, 11);
+            for (c, &val) in v.iter().enumerate() {
+                if (1..11).contains(&val) && seen[c].len() < 3 {
+                    found.push(format!("{v:?}: cell {c} ({val}) narrowed to {:?}", seen[c]));
+                }
+            }
+        }
+        assert!(found.is_empty(), "{found:#?}");
     }
 
     #[test]
