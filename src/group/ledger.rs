@@ -60,6 +60,12 @@ pub struct ReleaseRecord {
     /// [`key_check`]): tells a key that does not belong to the ledger. Empty in older ledgers.
     #[serde(default)]
     pub key_check: String,
+    /// A keyed hash of every figure the group report printed, as printed (its sections:
+    /// values, ranges, medians, week means and their n, what is withheld), see
+    /// [`Ledger::figures_key`]. Empty in older ledgers: such a release is never taken as
+    /// the same report ([`Ledger::issued`]).
+    #[serde(default, skip_serializing_if = "String::is_empty")]
+    pub figures: String,
 }
 
 /// What a key gives for a fixed text: stored with each release, so a `secret.key` restored
@@ -591,16 +597,28 @@ impl Ledger {
         to: &str,
         headline: &ReleaseLine,
         published: &Published,
+        figures: &str,
     ) -> bool {
         self.releases.iter().any(|r| {
             r.program == program
                 && r.period_from == from
                 && r.period_to == to
+                && !r.figures.is_empty()
+                && r.figures == figures
                 && r.headline == *headline
                 && r.counts == published.counts
                 && r.count_labels == published.count_labels
                 && r.sums == published.sums
         })
+    }
+
+    /// A keyed hash (blake3, under the ledger's key) of the printed figures `json` (the group
+    /// report's sections serialized): what [`Ledger::issued`] compares besides the published
+    /// facts. Week means withheld by the weighted-mean audit, week n dropped by the band audit,
+    /// ranges, medians and percentages are printed but are no published fact, and depend on
+    /// the history the report was audited against.
+    pub fn figures_key(&self, json: &[u8]) -> String {
+        blake3::keyed_hash(&self.secret, json).to_hex().to_string()
     }
 
     fn history_of(&self, keep: impl Fn(&ReleaseRecord) -> bool) -> History {
@@ -664,6 +682,7 @@ pub fn release_record(
     as_of: &str,
     headline: ReleaseLine,
     published: Published,
+    figures: String,
 ) -> ReleaseRecord {
     ReleaseRecord {
         program: program.into(),
@@ -675,6 +694,7 @@ pub fn release_record(
         count_labels: published.count_labels,
         sums: published.sums,
         key_check: String::new(),
+        figures,
     }
 }
 

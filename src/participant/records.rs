@@ -2246,16 +2246,32 @@ pub fn parse_activity(
     // writes every duration of its export one way; when one of them read as hours:minutes
     // would be longer than an activity can last (`45:00` as 45 hours), the file writes
     // minutes:seconds, and all its such durations are read so (the first such cell is named
-    // in the note). Otherwise which way cannot be told, and those rows are dropped.
-    let minutes_seconds = table.rows.iter().find_map(|r| {
-        let raw = table.get(r, "minutes")?;
-        match split_duration(raw) {
-            WrittenDuration::Ambiguous(h, m) if h * 60.0 + m > MAX_ACTIVITY_MINUTES => {
-                Some(raw.to_string())
+    // in the note). Otherwise which way cannot be told, and those rows are dropped. Rows dated
+    // after a withdrawal of consent are not read (`parse_rows`) and tell nothing either: a
+    // `45:00` synced after it made an earlier `1:30` read as 1.5 minutes. A row whose date does
+    // not read as a plain date (`parse_when`) is then no evidence: it may be one of them.
+    let consent_withdrawn = w.withdrew.filter(|_| !w.follow_up_weigh_ins);
+    let read_before_withdrawal = |r: &super::table::Row| {
+        consent_withdrawn.is_none_or(|x| {
+            table
+                .get(r, "date")
+                .and_then(|s| super::table::parse_when(s, opts))
+                .is_some_and(|when| when.date <= x)
+        })
+    };
+    let minutes_seconds = table
+        .rows
+        .iter()
+        .filter(|r| read_before_withdrawal(r))
+        .find_map(|r| {
+            let raw = table.get(r, "minutes")?;
+            match split_duration(raw) {
+                WrittenDuration::Ambiguous(h, m) if h * 60.0 + m > MAX_ACTIVITY_MINUTES => {
+                    Some(raw.to_string())
+                }
+                _ => None,
             }
-            _ => None,
-        }
-    });
+        });
     let mmss_note: Option<String> = minutes_seconds.as_ref().map(|raw| {
         format!(
             "durations with one colon read as minutes:seconds, as `{raw}` shows (as hours:minutes it would be longer than an activity can last)"

@@ -560,7 +560,8 @@ pub fn finish(
             .map(|h| group::summarize_release(&rows, &opts, &h))
             .filter(|(g, p)| {
                 let line = report::group::headline(g, &period_words);
-                ledger.issued(&program_id, &period_from, &period_to, &line, p)
+                let figures = ledger.figures_key(&printed_figures(g));
+                ledger.issued(&program_id, &period_from, &period_to, &line, p, &figures)
             });
         let (mut g, published) = match reissue {
             Some(same) => same,
@@ -581,6 +582,7 @@ pub fn finish(
         for (name, bytes) in group_files {
             staging.write(&format!("group/{name}"), &bytes)?;
         }
+        let figures = ledger.figures_key(&printed_figures(&g));
         release = Some((
             ledger,
             group::ledger::release_record(
@@ -590,6 +592,7 @@ pub fn finish(
                 &plan.as_of.to_string(),
                 headline,
                 published,
+                figures,
             ),
         ));
         group = Some(g);
@@ -1062,4 +1065,10 @@ fn glyph_list(missing: &[char]) -> String {
         .map(|c| format!("`{c}` U+{:04X}", *c as u32))
         .collect::<Vec<_>>()
         .join(", ")
+}
+
+/// The group report's printed figures (its sections, serialized), for
+/// [`group::ledger::Ledger::figures_key`]: not the notes, methods or month-over-month table.
+fn printed_figures(g: &group::GroupReport) -> Vec<u8> {
+    serde_json::to_vec(&(&g.program, &g.splits)).unwrap_or_default()
 }

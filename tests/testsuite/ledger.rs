@@ -1701,3 +1701,59 @@ fn stray_ledgers_beside_never_outrank_the_programs_own_or_the_output_folders() {
     );
     assert!(!t.dir.join("reports.ledger").exists() && !t.dir.join("preview.ledger").exists());
 }
+
+/// A month run again after a file was fixed, where the fix changes no count's people and no
+/// mean's values but does change a printed figure (an adherence median), is a new report: it
+/// is not taken as the one published before, and the ledger records it. Before, the re-run
+/// was matched to the first release on headline, counts and sums alone: the 80-person demo's
+/// September, with 40 people's September activity minutes tripled, printed the program's
+/// activity median '120 (69)' where the first report printed '80 (69)', and the ledger kept
+/// one release, as if the sponsor had been sent the same report twice.
+#[test]
+fn a_month_run_again_with_a_changed_printed_figure_is_a_new_release() {
+    let t = ProgramTest::demo(80);
+    let run = || {
+        let o = t.run(&[
+            "run",
+            "{dir}",
+            "--period",
+            "2026-09",
+            "--as-of",
+            "2026-10-01",
+            "--formats",
+            "html",
+        ]);
+        assert!(o.code <= 1, "{o:?}");
+        std::fs::read_to_string(t.dir.join("reports/group/program.html")).unwrap()
+    };
+    let first = run();
+    for i in 1..=40 {
+        let p = t.dir.join(format!("participants/SG-{i:03}/activity.csv"));
+        let Ok(text) = std::fs::read_to_string(&p) else {
+            continue;
+        };
+        let fixed: Vec<String> = text
+            .lines()
+            .map(|l| {
+                let mut f: Vec<String> = l.split(',').map(str::to_string).collect();
+                if f[0].starts_with("2026-09")
+                    && let Ok(m) = f[2].parse::<f64>()
+                {
+                    f[2] = format!("{}", m * 3.0);
+                }
+                f.join(",")
+            })
+            .collect();
+        std::fs::write(&p, fixed.join("\n") + "\n").unwrap();
+    }
+    let again = run();
+    assert_ne!(first, again, "the fix changes a printed figure");
+    let ledger: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(t.dir.join("reports.ledger/ledger.json")).unwrap())
+            .unwrap();
+    assert_eq!(
+        ledger["releases"].as_array().unwrap().len(),
+        2,
+        "the second, different report is recorded"
+    );
+}

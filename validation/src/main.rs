@@ -190,7 +190,10 @@ fn stress(args: &Args) -> String {
         let _ = writeln!(s);
     }
     // Coverage of the implied intake by the true activity level, all departures together.
-    let all = scenarios.len() - 1;
+    let all = scenarios
+        .iter()
+        .position(|sc| sc.name.starts_with("all of the above"))
+        .unwrap_or(scenarios.len() - 1);
     let _ = writeln!(
         s,
         "\nThe implied intake's interval in S{all}, by the person's true activity level (the prior \

@@ -261,6 +261,10 @@ pub struct Scenario {
     pub rmr_sd: f64,
     /// Range of the clothing at clinic weigh-ins, kg.
     pub clothes: (f64, f64),
+    /// Food logs stay at the diet's level when eating drifts back or relapses: the day's log is
+    /// what the diet's intake would have been that day (same weekday and day-to-day scatter),
+    /// less the person's usual share, so the share left out grows with the relapse.
+    pub logs_keep_diet: bool,
 }
 
 impl Scenario {
@@ -273,10 +277,11 @@ impl Scenario {
         underreport_max: 0.40,
         rmr_sd: 0.07,
         clothes: (0.6, 1.6),
+        logs_keep_diet: false,
     };
 
     /// Departures from [`Scenario::BASE`], one at a time, then all together.
-    pub const STRESS: [Scenario; 6] = [
+    pub const STRESS: [Scenario; 7] = [
         Scenario {
             name: "scales 1.5× as noisy, scatter more correlated (φ up to 0.9)",
             noise: 1.5,
@@ -311,6 +316,12 @@ impl Scenario {
             underreport_max: 0.60,
             rmr_sd: 0.12,
             clothes: (0.0, 3.0),
+            logs_keep_diet: false,
+        },
+        Scenario {
+            name: "food logs kept at the diet's level while eating drifts back or relapses (not in S6)",
+            logs_keep_diet: true,
+            ..Scenario::BASE
         },
     ];
 }
@@ -448,7 +459,8 @@ pub fn simulate_in(seed: u64, index: usize, days: usize, sc: &Scenario) -> Perso
         } else {
             1.0 - weekend * 2.0 / 5.0
         };
-        let ei = ((ei0 + plan_d) * wk * (1.0 + r.gauss(0.0, scatter))).max(300.0);
+        let day_factor = wk * (1.0 + r.gauss(0.0, scatter));
+        let ei = ((ei0 + plan_d) * day_factor).max(300.0);
         let active = withdrew.is_none_or(|w| d < w);
         let walk_kcal = if walker && active && r.chance(walk_p) {
             let minutes = (walk_min * r.range(0.6, 1.4)).round();
@@ -483,7 +495,12 @@ pub fn simulate_in(seed: u64, index: usize, days: usize, sc: &Scenario) -> Perso
             log_p0 * (1.0 - 0.4 * d as f64 / days as f64) * if dow >= 5 { 0.7 } else { 1.0 };
         if active && r.chance(p_log) {
             let miss = (underreport + r.gauss(0.0, 0.08)).clamp(-0.2, 0.8);
-            logs.push((d, (ei * (1.0 - miss)).round()));
+            let as_logged = if sc.logs_keep_diet {
+                ((ei0 + plan[0]) * day_factor).max(300.0)
+            } else {
+                ei
+            };
+            logs.push((d, (as_logged * (1.0 - miss)).round()));
         }
     }
 

@@ -3578,3 +3578,52 @@ fn grams_far_above_the_rows_energy_drop_the_row() {
     assert!(diags.is_empty(), "{diags:#?}");
     assert_eq!(v[0].fat_g, Some(1.0));
 }
+
+/// A row dated after a withdrawal of consent is not read (`parse_rows`), so it cannot tell how
+/// the file's other durations are written either. Before, the minutes:seconds evidence was
+/// looked for in every row: a `45:00` synced on 10 July, after consent was withdrawn on
+/// 5 June, made the `1:30` of 1 June read as 1.5 minutes, where without that row it is dropped
+/// as ambiguous (the June report's activity and energy figures and weekly.csv changed).
+#[test]
+fn rows_after_withdrawn_consent_do_not_decide_how_durations_are_read() {
+    let text = "date,activity,minutes,met,steps\n2026-05-30,walking_3mph,30,,\n2026-06-01,walking_3mph,1:30,,\n2026-07-10,walking_3mph,45:00,,\n";
+    let w = Window {
+        withdrew: Some(d(2026, 6, 5)),
+        reported_from: Some(d(2026, 6, 1)),
+        ..window()
+    };
+    let mut diags = Vec::new();
+    let v = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &w,
+        &mut diags,
+    )
+    .unwrap();
+    let read: Vec<_> = v.iter().map(|a| (a.date, a.minutes)).collect();
+    assert_eq!(read, [(d(2026, 5, 30), 30.0)], "{diags:#?}");
+    assert!(
+        diags
+            .iter()
+            .any(|e| e.line == Some(3) && e.message.contains("no duration of the file tells which")),
+        "{diags:#?}"
+    );
+    assert!(
+        !diags.iter().any(|e| e.to_string().contains("`45:00`")),
+        "{:?}",
+        diags.iter().map(|e| e.to_string()).collect::<Vec<_>>()
+    );
+    // Without the withdrawal the 10 July row is read and tells minutes:seconds.
+    let mut diags = Vec::new();
+    let v = parse_activity(
+        text,
+        &CsvOptions::default(),
+        &ctx("activity.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(v.len(), 3, "{diags:#?}");
+    assert_eq!(v[1].minutes, 1.5);
+}

@@ -20,8 +20,17 @@ const LOG_DAY_CV: f64 = 0.30;
 /// (program choice).
 const LOG_CV_PRIOR_DAYS: f64 = 10.0;
 /// SD of the under-reporting share from one four-week block to the next around the person's
-/// own share (reporting is not perfectly constant over a program; program choice).
-const UNDERREPORT_BLOCK_SD: f64 = 0.03;
+/// own share, σ_u. It is not known, so the posterior is averaged over this grid with equal prior
+/// weights (a log-uniform prior from a nearly constant share to one that moves by a fifth of
+/// intake; the range is a program choice). Reporting is not constant over a program:
+/// self-reported intake drifts with an intervention (Natarajan et al. 2010, *Am J Epidemiol*
+/// 172:819, from memory), and a log kept at the diet's level while the person eats more again is
+/// a known failing of food records (common practice). With one fixed small σ_u, logs that stay
+/// flat while the weight trend turns from loss to regain could only be explained by a large
+/// requirement and heavy under-reporting (a sedentary man's activity level read as 2.1);
+/// averaged over σ_u, the records decide how far the logs' movement can be trusted to track
+/// intake.
+const UNDERREPORT_BLOCK_SDS: [f64; 5] = [0.03, 0.05, 0.08, 0.13, 0.21];
 /// Grid of the joint posterior: EI₀ over the prior's ±`EI0_GRID_SD` SD in `EI0_STEPS` steps,
 /// the under-reporting share over [`U_MIN`, `U_MAX`] in steps of `U_STEP`.
 const EI0_GRID_SD: f64 = 4.0;
@@ -194,11 +203,12 @@ fn log_day_cv(p: &Person<'_>, bounds: &[(NaiveDate, NaiveDate)]) -> f64 {
 /// L_b = (1 − u)·(EI₀ + D_b) + e_b,  Var e_b = σ²_L,b + (1 − u)²·σ²_D,b + (σ_u·L_b)²,
 ///
 /// with σ_L,b the sampling error of the logged mean, σ_D,b the slope's and the model
-/// parameters' uncertainty of D_b, and σ_u a block-to-block wobble of the reporting share.
+/// parameters' uncertainty of D_b, and σ_u a block-to-block wobble of the reporting share,
+/// itself unknown and averaged over ([`UNDERREPORT_BLOCK_SDS`]).
 /// With one block, or blocks whose D_b are alike, the logs fix only the product (1 − u)·EI₀
 /// and the prior decides how it is shared; when the implied intake moves between blocks
 /// (a diet that fades or stops), the logs moving with it (or not) identify 1 − u as the slope
-/// of L_b on D_b. The joint posterior is evaluated on a grid (exact for this two-parameter
+/// of L_b on D_b. The joint posterior is evaluated on a grid (exact for this three-parameter
 /// model; Gelman et al. 2013, *Bayesian Data Analysis*, 3rd ed., ch. 3) and summarised by its
 /// marginal means, the variance of EI₀ and the 2.5 % / 97.5 % quantiles of u.
 pub(super) fn baseline_requirement(
@@ -225,43 +235,47 @@ pub(super) fn baseline_requirement(
     let ei_at =
         |i: usize| prior + sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0);
     let u_at = |j: usize| U_MIN + U_STEP * j as f64;
-    let mut logp = vec![0.0_f64; EI0_STEPS * n_u];
+    let n_k = UNDERREPORT_BLOCK_SDS.len();
+    let cell = |k: usize, i: usize, j: usize| (k * EI0_STEPS + i) * n_u + j;
+    let mut logp = vec![0.0_f64; n_k * EI0_STEPS * n_u];
     let mut best = f64::NEG_INFINITY;
-    // Each block's variance depends on u only: (1/V, ln V) once per u.
+    // Each block's variance depends on u and σ_u only: (1/V, ln V) once per pair.
     let mut inv_ln = vec![(0.0_f64, 0.0_f64); blocks.len()];
-    for j in 0..n_u {
-        let u = u_at(j);
-        let keep = 1.0 - u;
-        let lp_u = -0.5 * ((u - s.underreport_prior) / s.underreport_sd).powi(2);
-        for (b, slot) in blocks.iter().zip(inv_ln.iter_mut()) {
-            let v = b.logged_var
-                + keep * keep * b.change_var
-                + (UNDERREPORT_BLOCK_SD * b.logged).powi(2);
-            *slot = (1.0 / v, v.ln());
-        }
-        for i in 0..EI0_STEPS {
-            let ei0 = ei_at(i);
-            let mut lp = lp_u - 0.5 * ((ei0 - prior) / sd0).powi(2);
-            for (b, (inv, ln)) in blocks.iter().zip(&inv_ln) {
-                let r = b.logged - keep * (ei0 + b.change);
-                lp -= 0.5 * (ln + r * r * inv);
+    for (k, &wobble) in UNDERREPORT_BLOCK_SDS.iter().enumerate() {
+        for j in 0..n_u {
+            let u = u_at(j);
+            let keep = 1.0 - u;
+            let lp_u = -0.5 * ((u - s.underreport_prior) / s.underreport_sd).powi(2);
+            for (b, slot) in blocks.iter().zip(inv_ln.iter_mut()) {
+                let v = b.logged_var + keep * keep * b.change_var + (wobble * b.logged).powi(2);
+                *slot = (1.0 / v, v.ln());
             }
-            logp[i * n_u + j] = lp;
-            best = best.max(lp);
+            for i in 0..EI0_STEPS {
+                let ei0 = ei_at(i);
+                let mut lp = lp_u - 0.5 * ((ei0 - prior) / sd0).powi(2);
+                for (b, (inv, ln)) in blocks.iter().zip(&inv_ln) {
+                    let r = b.logged - keep * (ei0 + b.change);
+                    lp -= 0.5 * (ln + r * r * inv);
+                }
+                logp[cell(k, i, j)] = lp;
+                best = best.max(lp);
+            }
         }
     }
     let mut w_total = 0.0;
     let mut m_e = 0.0;
     let mut m_e2 = 0.0;
     let mut w_u = vec![0.0_f64; n_u];
-    for i in 0..EI0_STEPS {
-        let ei0 = ei_at(i);
-        for j in 0..n_u {
-            let w = (logp[i * n_u + j] - best).exp();
-            w_total += w;
-            m_e += w * ei0;
-            m_e2 += w * ei0 * ei0;
-            w_u[j] += w;
+    for k in 0..n_k {
+        for i in 0..EI0_STEPS {
+            let ei0 = ei_at(i);
+            for j in 0..n_u {
+                let w = (logp[cell(k, i, j)] - best).exp();
+                w_total += w;
+                m_e += w * ei0;
+                m_e2 += w * ei0 * ei0;
+                w_u[j] += w;
+            }
         }
     }
     if !(w_total > 0.0 && w_total.is_finite()) {

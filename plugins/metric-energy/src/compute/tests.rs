@@ -690,6 +690,11 @@ fn activity_is_counted_net_of_rest_and_raises_the_implied_intake() {
 /// Runs a man (100 kg, true PAL 1.4, prior centred there) whose logs leave out 35 % of what
 /// he eats, with intake `intake(day)` over 168 days and a log every day; returns the output.
 fn logged_record(intake: &dyn Fn(usize) -> f64) -> ModuleOutput {
+    logged_record_as(intake, &|d| 0.65 * intake(d))
+}
+
+/// [`logged_record`] with the day's logged kcal given by `logged(day)`.
+fn logged_record_as(intake: &dyn Fn(usize) -> f64, logged: &dyn Fn(usize) -> f64) -> ModuleOutput {
     let enrolled = d("2027-01-04");
     let n = 168;
     let model = man_model();
@@ -700,7 +705,7 @@ fn logged_record(intake: &dyn Fn(usize) -> f64) -> ModuleOutput {
     data.intake = (0..n)
         .map(|i| IntakeDay {
             date: day_after(enrolled, i as u64),
-            kcal: 0.65 * intake(i),
+            kcal: logged(i),
             carbs_g: None,
             fat_g: None,
             protein_g: None,
@@ -749,6 +754,29 @@ fn logs_that_move_with_the_implied_intake_identify_under_reporting() {
     // The activity level follows: within 0.08 of the true 1.4 when the logs identify it.
     let pal = stopped.scalar("pal_estimate").unwrap();
     assert!((pal - 1.4).abs() < 0.08, "pal {pal}");
+}
+
+/// Logs kept at the diet's level while the person eats more again (the share left out grows
+/// from 35 % to about 56 %): with the reporting share held nearly constant from block to block,
+/// flat logs against a trend that turns from loss to gain could only be read as a large
+/// requirement and heavy under-reporting (the activity level came out at 2.24 for a true 1.4, and
+/// a real regain read as more than food can supply). Averaged over how much the share may move,
+/// the records let the logs' flatness count for little and the requirement stays near the truth
+/// (1.33).
+#[test]
+fn flat_logs_through_a_relapse_do_not_inflate_the_requirement() {
+    let model = man_model();
+    let ei0 = model.ei0;
+    let intake = |d: usize| if d < 84 { ei0 - 700.0 } else { ei0 + 400.0 };
+    let out = logged_record_as(&intake, &|_| 0.65 * (ei0 - 700.0));
+    let pal = out.scalar("pal_estimate").unwrap();
+    assert!((pal - 1.4).abs() < 0.15, "pal {pal}");
+    let implied = out.scalar_full("implied_intake_kcal_per_day").unwrap();
+    let truth = ei0 + 400.0;
+    assert!(
+        implied.lower.unwrap() < truth && truth < implied.upper.unwrap(),
+        "{implied:?} vs {truth}"
+    );
 }
 
 /// A 10 kg step in the weigh-ins over three days (another scale, a typing error) makes the
