@@ -95,14 +95,21 @@ pub fn human(bytes: u64) -> String {
     }
 }
 
-/// The message for a file over its limit.
+/// The message for a file over its limit. Only a CSV file holds a history that can be split
+/// into years; a YAML file (`program.yaml`, a `profile.yaml`) over its limit is the wrong file
+/// (it read "split a very long history into the reporting years" too).
 pub fn too_large_message(size: u64, limit: u64) -> String {
     format!(
         "the file is {} ({} bytes), larger than the limit of {} for this kind of file; it was not read \
-         (check it is the right file; split a very long history into the reporting years)",
+         (check it is the right file{})",
         human(size),
         size,
-        human(limit)
+        human(limit),
+        if limit == MAX_CSV_BYTES {
+            "; split a very long history into the reporting years"
+        } else {
+            ""
+        }
     )
 }
 
@@ -118,7 +125,16 @@ pub fn open_input(path: &Path) -> std::io::Result<std::fs::File> {
     #[cfg(unix)]
     {
         let fd = rustix::fs::open(path, input_flags(), rustix::fs::Mode::empty());
-        checked_file(fd.map_err(|e| link_or(e, || is_link(path))))
+        checked_file(fd.map_err(|e| {
+            described(e, || {
+                let t = std::fs::symlink_metadata(path).ok()?.file_type();
+                if t.is_symlink() {
+                    Some(LINK_MESSAGE.to_string())
+                } else {
+                    (!t.is_file()).then(|| not_a_file_message(&t))
+                }
+            })
+        }))
     }
     #[cfg(not(unix))]
     {
@@ -222,13 +238,19 @@ pub fn read_input_in(dir: &InputDir, name: &str) -> std::io::Result<Vec<u8>> {
     let f = {
         let fd = rustix::fs::openat(&dir.fd, name, input_flags(), rustix::fs::Mode::empty());
         checked_file(fd.map_err(|e| {
-            link_or(e, || {
-                rustix::fs::statat(&dir.fd, name, rustix::fs::AtFlags::SYMLINK_NOFOLLOW).is_ok_and(
-                    |st| {
-                        rustix::fs::FileType::from_raw_mode(st.st_mode)
-                            == rustix::fs::FileType::Symlink
-                    },
-                )
+            described(e, || {
+                use rustix::fs::FileType as T;
+                let st = rustix::fs::statat(&dir.fd, name, rustix::fs::AtFlags::SYMLINK_NOFOLLOW)
+                    .ok()?;
+                match T::from_raw_mode(st.st_mode) {
+                    T::Symlink => Some(LINK_MESSAGE.to_string()),
+                    T::RegularFile => None,
+                    T::Fifo => Some(not_a_file("a FIFO (named pipe)")),
+                    T::CharacterDevice | T::BlockDevice => Some(not_a_file("a device")),
+                    T::Socket => Some(not_a_file("a socket")),
+                    T::Directory => Some(not_a_file("a folder")),
+                    T::Unknown => Some(not_a_file("a special file")),
+                }
             })
         }))?
     };
@@ -274,11 +296,21 @@ fn input_flags() -> rustix::fs::OFlags {
 /// of error is kept).
 #[cfg(unix)]
 fn link_or(e: rustix::io::Errno, is_link: impl FnOnce() -> bool) -> std::io::Error {
+    described(e, || is_link().then(|| LINK_MESSAGE.to_string()))
+}
+
+/// An open error in the words `what` gives for the entry that could not be opened (a link: `O_NOFOLLOW` fails
+/// with `ELOOP`; a socket: opening one fails with `ENXIO`, "No such device or address", which
+/// told a reader nothing); the kind of error is kept.
+#[cfg(unix)]
+fn described(e: rustix::io::Errno, what: impl FnOnce() -> Option<String>) -> std::io::Error {
     let e = std::io::Error::from(e);
-    if e.kind() != std::io::ErrorKind::NotFound && is_link() {
-        std::io::Error::new(e.kind(), LINK_MESSAGE)
-    } else {
-        e
+    if e.kind() == std::io::ErrorKind::NotFound {
+        return e;
+    }
+    match what() {
+        Some(m) => std::io::Error::new(e.kind(), m),
+        None => e,
     }
 }
 
@@ -307,10 +339,12 @@ pub const LINK_MESSAGE: &str = "it is a symbolic link, and links are not followe
 
 /// Why something that is not a regular file is not read.
 pub fn not_a_file_message(t: &std::fs::FileType) -> String {
-    format!(
-        "it is {}, not a regular file; nothing was read from it (put the file itself here)",
-        kind_of(t)
-    )
+    not_a_file(kind_of(t))
+}
+
+/// [`not_a_file_message`] for an entry of kind `kind` ("a socket").
+fn not_a_file(kind: &str) -> String {
+    format!("it is {kind}, not a regular file; nothing was read from it (put the file itself here)")
 }
 
 /// "a folder", "a FIFO (named pipe)", … for a file type.
@@ -385,6 +419,22 @@ pub fn check_size(path: &Path) -> Result<(), String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Only a CSV file's message says to split a history into years (attack22: a 5 MB
+    /// program.yaml was told to).
+    #[test]
+    fn only_a_csv_file_is_told_to_split_its_history() {
+        assert_eq!(
+            too_large_message(5_001_848, MAX_YAML_BYTES),
+            "the file is 4.8 MiB (5001848 bytes), larger than the limit of 1 MiB for this kind \
+             of file; it was not read (check it is the right file)"
+        );
+        assert!(
+            too_large_message(MAX_CSV_BYTES + 1, MAX_CSV_BYTES).ends_with(
+                "(check it is the right file; split a very long history into the reporting years)"
+            )
+        );
+    }
 
     #[test]
     fn limits_by_extension() {

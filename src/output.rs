@@ -1378,14 +1378,26 @@ pub fn sync_written<'a>(
     sync_dir(dir)
 }
 
+/// Makes folder `p` (and the missing ones above it) with the mode of `access`, whatever the
+/// umask: a mode given at creation is cut by the umask, so under `umask 077` (a hardened
+/// server's, or a crontab's) `--group-readable` made 0700 folders and 0600 files the reports
+/// group could not read.
 #[cfg(unix)]
 fn create_dir(p: &Path, access: Access) -> Result<(), StagingError> {
-    use std::os::unix::fs::DirBuilderExt;
+    use std::os::unix::fs::{DirBuilderExt, PermissionsExt};
+    let made: Vec<&Path> = p
+        .ancestors()
+        .take_while(|a| fs::symlink_metadata(a).is_err())
+        .collect();
     fs::DirBuilder::new()
         .recursive(true)
         .mode(access.dir_mode())
         .create(p)
-        .map_err(io(p))
+        .map_err(io(p))?;
+    for d in made {
+        fs::set_permissions(d, fs::Permissions::from_mode(access.dir_mode())).map_err(io(d))?;
+    }
+    Ok(())
 }
 
 #[cfg(not(unix))]
@@ -1393,15 +1405,19 @@ fn create_dir(p: &Path, _access: Access) -> Result<(), StagingError> {
     fs::create_dir_all(p).map_err(io(p))
 }
 
+/// Makes file `p` with the mode of `access`, whatever the umask (see [`create_dir`]).
 #[cfg(unix)]
 fn new_file(p: &Path, access: Access) -> Result<File, StagingError> {
-    use std::os::unix::fs::OpenOptionsExt;
-    File::options()
+    use std::os::unix::fs::{OpenOptionsExt, PermissionsExt};
+    let f = File::options()
         .write(true)
         .create_new(true)
         .mode(access.file_mode())
         .open(p)
-        .map_err(io(p))
+        .map_err(io(p))?;
+    f.set_permissions(fs::Permissions::from_mode(access.file_mode()))
+        .map_err(io(p))?;
+    Ok(f)
 }
 
 #[cfg(not(unix))]

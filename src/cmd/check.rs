@@ -603,12 +603,11 @@ pub fn run_check_with(
 }
 
 /// What a run finds wrong on a page the program's own templates make, found as the run finds
-/// it: a participant page or the group report's page without the cautions
-/// ([`crate::report::check_template_cautions`], the check every run makes before it
-/// publishes), reported in the run's words. A run stopped on it with exit code 6 while `check`
-/// had passed the program. The participant page is made for the first usable participant (the
-/// cautions are the same on every page of a program), in the period a run without `--period`
-/// reports.
+/// it: a participant page that cannot be made, or a participant page or the group report's page
+/// without the cautions ([`crate::report::check_template_cautions`], the check every run makes
+/// before it publishes), reported in the run's words. A run stopped on it with exit code 6
+/// while `check` had passed the program. The participant page is made for the first usable
+/// participant, with its module results, in the period a run without `--period` reports.
 fn template_problems(
     prog: &crate::program::Program,
     participants: &[crate::participant::LoadedParticipant],
@@ -968,6 +967,59 @@ mod tests {
         assert_eq!(code, exit_code::PROGRAM_INVALID, "{out}");
         assert!(out.contains("participant.html.hbs:2:1:"), "{out}");
         assert!(out.contains("`<script>`"), "{out}");
+    }
+
+    /// A template of the program's own with a misspelt field or a partial that does not exist
+    /// loads, and its page cannot be made: the run stopped on the first participant ("rendering
+    /// failed: participant P1: … Failed to access variable in strict mode", exit 6) while
+    /// `check` said "program … ok" and exited 0 (attack22), as its page was made without the
+    /// module results and any failure passed over. The page is now made as the run makes it.
+    #[test]
+    fn a_template_page_the_run_cannot_make_is_an_error_of_check() {
+        let tmp = program_dir();
+        add(tmp.path(), "P1", &[("profile.yaml", &profile("P1"))]);
+        let yaml = tmp.path().join("program.yaml");
+        let mut text = fs::read_to_string(&yaml).unwrap();
+        text.push_str("report: { templates: templates }\n");
+        fs::write(&yaml, text).unwrap();
+        let t = tmp.path().join("templates");
+        fs::create_dir(&t).unwrap();
+        for (page, found) in [
+            (
+                "<p>{{participant.idd}}</p>\n{{> cautions}}\n",
+                "Failed to access variable in strict mode Some(\"participant.idd\")",
+            ),
+            (
+                "<p>{{participant.id}}</p>\n{{> caution}}\n",
+                "Partial not found caution",
+            ),
+        ] {
+            fs::write(t.join("participant.html.hbs"), page).unwrap();
+            let (code, out) = run(tmp.path());
+            assert_eq!(code, exit_code::OUTPUT_FAILED, "{out}");
+            assert!(
+                out.contains("rendering failed: participant P1: template:"),
+                "{out}"
+            );
+            assert!(out.contains(found), "{out}");
+        }
+        // The group page: a partial that does not exist is the run's failure too.
+        fs::write(
+            t.join("participant.html.hbs"),
+            "<p>{{participant.id}}</p>\n{{> cautions}}\n",
+        )
+        .unwrap();
+        fs::write(
+            t.join("group.html.hbs"),
+            "<p>x</p>\n{{> cautions}}{{> summary}}\n",
+        )
+        .unwrap();
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::OUTPUT_FAILED, "{out}");
+        assert!(out.contains("Partial not found summary"), "{out}");
+        fs::remove_file(t.join("group.html.hbs")).unwrap();
+        let (code, out) = run(tmp.path());
+        assert_eq!(code, exit_code::SUCCESS, "{out}");
     }
 
     #[test]

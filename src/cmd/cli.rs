@@ -21,7 +21,8 @@ pub enum Command {
     Check {
         /// The program folder (holds program.yaml and participants/).
         program: PathBuf,
-        /// The day treated as today: data dated after it are future data (default: today).
+        /// The day treated as today: data dated after it are future data (default: today, in
+        /// program.yaml's `input.time_zone` when set).
         #[arg(long, value_name = "YYYY-MM-DD")]
         as_of: Option<NaiveDate>,
         /// `text` (a summary by kind, then the details) or `json` (one object per line for
@@ -153,7 +154,8 @@ pub struct RunArgs {
     /// Last day of a custom reporting period.
     #[arg(long, value_name = "YYYY-MM-DD", requires = "from")]
     pub to: Option<NaiveDate>,
-    /// The day treated as today: data dated after it are future data (default: today).
+    /// The day treated as today: data dated after it are future data (default: today, in
+    /// program.yaml's `input.time_zone` when set).
     #[arg(long, value_name = "YYYY-MM-DD")]
     pub as_of: Option<NaiveDate>,
     /// Output folder (default: program.yaml's report.out, relative to the program folder).

@@ -24,7 +24,7 @@ pub fn dispatch(cli: Cli) -> i32 {
             out,
         } => {
             init_logging(false, LogFormat::Text);
-            let as_of = as_of.unwrap_or_else(today);
+            let as_of = as_of.unwrap_or_else(|| today(&program));
             let stdout = std::io::stdout();
             let opts = check::CheckOptions {
                 json: format == CheckFormat::Json,
@@ -36,7 +36,11 @@ pub fn dispatch(cli: Cli) -> i32 {
         }
         Command::Run(args) => {
             init_logging(args.quiet, args.log_format);
-            run::run_command(&args, today())
+            let today = match args.as_of {
+                Some(d) => d,
+                None => today(&args.program),
+            };
+            run::run_command(&args, today)
         }
         Command::Merge(args) => {
             init_logging(args.quiet, args.log_format);
@@ -147,8 +151,15 @@ fn debug_panic_hook() {
     }
 }
 
-fn today() -> chrono::NaiveDate {
-    chrono::Local::now().date_naive()
+/// Today for the program in folder `program`: the date in its `input.time_zone` when it sets
+/// one, else on the machine's clock ([`crate::program::Program::date_at`]); the machine's when
+/// the program cannot be loaded (the command then says why).
+fn today(program: &Path) -> chrono::NaiveDate {
+    let now = chrono::Utc::now();
+    crate::program::load_program(program).map_or_else(
+        |_| now.with_timezone(&chrono::Local).date_naive(),
+        |p| p.date_at(now),
+    )
 }
 
 /// Logs go to standard error; the level comes from `COHORTPRESS_LOG` (e.g. `debug`, see

@@ -376,6 +376,9 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
             }
             continue;
         }
+        if is_system_entry(&name) {
+            continue;
+        }
         let rel = format!("{PARTICIPANTS_DIR}/{}", printable(&name));
         let ft = entry.file_type();
         if ft.is_symlink() {
@@ -469,6 +472,26 @@ pub fn discover(program: &Program) -> (Vec<ParticipantDir>, Vec<Diagnostic>) {
     (dirs, diags)
 }
 
+/// Whether `name` is an entry file systems and operating systems put in any folder, which is
+/// no participant's, as a hidden entry is not: the `__MACOSX/` a Mac's zip archive unpacks
+/// beside its files, the `lost+found/` at the root of an ext file system (a participants folder
+/// that is a mount point), Windows Explorer's `Thumbs.db` and `desktop.ini`, and a Windows
+/// drive's `$RECYCLE.BIN` and `System Volume Information` (case aside). `__MACOSX` was "a
+/// participant with no profile.yaml" and `lost+found` one to rename (exit code 4 on every run);
+/// `Thumbs.db` a file to move (exit code 1).
+fn is_system_entry(name: &str) -> bool {
+    [
+        "__MACOSX",
+        "lost+found",
+        "Thumbs.db",
+        "desktop.ini",
+        "$RECYCLE.BIN",
+        "System Volume Information",
+    ]
+    .iter()
+    .any(|n| n.eq_ignore_ascii_case(name))
+}
+
 /// Whether `id` is a name Windows reserves for a device, with or without an extension
 /// (Microsoft, "Naming Files, Paths, and Namespaces"): `CON.html` cannot be created there.
 /// Whether `id` is a device name on Windows (`CON`, `NUL`, `COM1` …, in any case): a folder
@@ -489,11 +512,13 @@ pub fn is_folder_error(d: &Diagnostic) -> bool {
         && d.file == PARTICIPANTS_DIR
 }
 
-/// Shows control characters in a name as escapes so a message cannot be garbled by them.
+/// Shows control characters in a name as escapes so a message cannot be garbled by them, and
+/// characters a name shows as nothing (a zero-width space, a direction mark: `weights\u{200b}.csv`
+/// printed as `weights.csv`) so that it does not look like another.
 fn printable(name: &str) -> String {
     name.chars()
         .flat_map(|c| {
-            if c.is_control() {
+            if c.is_control() || crate::text::is_default_ignorable(c) {
                 c.escape_default().collect::<Vec<_>>()
             } else {
                 vec![c]
@@ -565,10 +590,14 @@ fn read_input(
         Ok(b) => b,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => return None,
         Err(e) => {
-            diags.push(
-                ctx.error(format!("cannot read the file ({e})"))
-                    .hint("this file is left out until it can be read; the participant is reported without it, and other participants are not affected"),
-            );
+            // Without its profile the participant is not reported at all (the hint said "the
+            // participant is reported without it" beside "participant left out").
+            let hint = if name.eq_ignore_ascii_case(PROFILE_FILE) {
+                "the participant is not reported until this file can be read; other participants are not affected"
+            } else {
+                "this file is left out until it can be read; the participant is reported without it, and other participants are not affected"
+            };
+            diags.push(ctx.error(format!("cannot read the file ({e})")).hint(hint));
             return Some(Err(()));
         }
     };
@@ -652,6 +681,15 @@ fn note_case(ctx: &FileCtx, name: &str, ours: &str) {
             "`{name}` read as `{ours}` (the name differs only in case)"
         ));
     }
+}
+
+/// The letters a file name starts with, compared as a reader sees them (case, width and
+/// invisible characters aside): `weights` of `weights.csv`, `Weights (1).xlsx` and `weights`.
+fn name_stem(name: &str) -> String {
+    crate::text::fold_for_comparison(name)
+        .chars()
+        .take_while(|c| c.is_alphabetic())
+        .collect()
 }
 
 /// Files a participant folder may hold.
@@ -758,35 +796,62 @@ pub fn load_opened(
             .iter()
             .map(|k| input_name(Some(&names), k))
             .collect();
+        // The inputs the folder does not hold, under their names or in other case.
+        let absent: Vec<&str> = KNOWN_FILES
+            .iter()
+            .zip(&read_as)
+            .filter(|(_, r)| !names.contains(r))
+            .map(|(k, _)| *k)
+            .collect();
         let mut stray = 0usize;
         for n in names {
+            if n.starts_with('.') || KNOWN_FILES.contains(&n.as_str()) || read_as.contains(&n) {
+                continue;
+            }
             let lower = n.to_lowercase();
             let input_like = [".csv", ".yaml", ".yml"].iter().any(|x| lower.ends_with(x));
-            if input_like
-                && !n.starts_with('.')
-                && !KNOWN_FILES.contains(&n.as_str())
-                && !read_as.contains(&n)
-            {
-                stray += 1;
-                if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
-                    continue;
-                }
-                let hint = if lower == "profile.yml" || lower == "profile.yaml" {
-                    "rename it to `profile.yaml` (lowercase, .yaml)".to_string()
-                } else {
-                    format!(
-                        "the files read are {}; check the spelling",
-                        KNOWN_FILES.join(", ")
-                    )
-                };
-                diags.push(
-                    FileCtx::new(id, rel(&n))
-                        .warning(format!(
-                            "`{n}` is not an input file the tool reads; it is ignored"
-                        ))
-                        .hint(hint),
-                );
+            // A name that starts as the name of an input the folder lacks is most likely that
+            // input saved under a name the tool does not read: `weights.csv.txt` (a system that
+            // hides extensions), `Weights.xlsx`, `weights.tsv`, `weights`, `weights.csv ` (a
+            // space at the end), `.сsv` with a Cyrillic `с`. Those were passed over without a
+            // word, and the participant was reported without weigh-ins, "nothing to report".
+            let meant = absent
+                .iter()
+                .copied()
+                .find(|k| name_stem(&n) == name_stem(k));
+            if !input_like && meant.is_none() {
+                continue;
             }
+            stray += 1;
+            if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
+                continue;
+            }
+            let hint = if lower == "profile.yml" || lower == "profile.yaml" {
+                "rename it to `profile.yaml` (lowercase, .yaml)".to_string()
+            } else if let Some(k) = meant {
+                format!(
+                    "this folder has no `{k}`: if this file holds it, save it as `{k}` \
+                     ({}), named exactly so",
+                    if k == PROFILE_FILE {
+                        "YAML text"
+                    } else {
+                        "CSV text: comma-, semicolon- or tab-separated"
+                    }
+                )
+            } else {
+                format!(
+                    "the files read are {}; check the spelling",
+                    KNOWN_FILES.join(", ")
+                )
+            };
+            diags.push(
+                FileCtx::new(id, rel(&printable(&n)))
+                    .warning(format!(
+                        "`{}` is not an input file the tool reads; it is ignored",
+                        printable(&n)
+                    ))
+                    .hint(hint),
+            );
         }
         if stray > crate::limits::MAX_DIAGNOSTICS_PER_KIND {
             diags.push(
@@ -814,12 +879,27 @@ pub fn load_opened(
         &mut diags,
     ) {
         None => {
+            // The participant's files one folder down (`SG-002/SG-002/profile.yaml`: an archive
+            // unpacked into a folder of its own): "add profile.yaml" sent people to write one.
+            let nested = listing.as_deref().unwrap_or_default().iter().find(|n| {
+                std::fs::symlink_metadata(dir.path.join(n).join(PROFILE_FILE))
+                    .is_ok_and(|m| m.is_file())
+            });
+            let hint = match nested {
+                Some(n) => format!(
+                    "the folder `{}` inside it holds a profile.yaml: move that folder's files up \
+                     into participants/{id}/ (an archive unpacked into a folder of its own)",
+                    printable(n)
+                ),
+                None => "add profile.yaml to the folder (see “profile.yaml” in docs/GUIDE.md)"
+                    .to_string(),
+            };
             diags.push(
                 pctx.error(format!(
                     "participant folder `{id}` has no profile.yaml; the participant cannot be used"
                 ))
                 .expected("a profile.yaml with id, sex, birth_date or age, height, enrolled")
-                .hint("add profile.yaml to the folder (see “profile.yaml” in docs/GUIDE.md)"),
+                .hint(hint),
             );
             None
         }

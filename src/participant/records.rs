@@ -250,6 +250,16 @@ fn parse_rows<T>(
     {
         diags.push(after_withdrawn_consent(x, first, table.column("date"), ctx));
     }
+    // Rows the table reader dropped for their shape count too: a comma-separated file whose
+    // weights have decimal commas (`2026-04-10,71,1,kg`) lost every row as "a field too many",
+    // and the run ended "with warnings" (exit code 1) without a weigh-in.
+    let (shape_dropped, first_shape) = &table.dropped;
+    dropped += shape_dropped;
+    let first_dropped = match (first_dropped, first_shape) {
+        (Some(a), Some(b)) if b.line < a.line => Some(b.clone()),
+        (None, b) => b.clone(),
+        (a, _) => a,
+    };
     if out.is_empty()
         && let Some(first) = first_dropped
     {

@@ -237,6 +237,10 @@ pub struct Table {
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
     /// the file's note.
     recognised: RefCell<std::collections::BTreeSet<std::borrow::Cow<'static, str>>>,
+    /// Rows the reader dropped for their shape (a field too many or too few, a field over the
+    /// size limit, a row the CSV reader could not read), each with its warning: how many, and
+    /// the first one's warning. They never reach [`Table::rows`].
+    pub dropped: (usize, Option<Diagnostic>),
 }
 
 impl Table {
@@ -400,6 +404,7 @@ impl Table {
             summary_rows: RefCell::new((0, None)),
             unfilled_rows: Cell::new((0, 0)),
             recognised: RefCell::default(),
+            dropped: (0, None),
         }
     }
 
@@ -621,6 +626,30 @@ pub fn read_table(
     diags: &mut Vec<Diagnostic>,
 ) -> Option<Table> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // Byte-order marks at the start of lines: exports joined together (`cat a.csv b.csv`, or a
+    // UTF-16 file appended to another), each saved with its own mark. Invisible, the mark made
+    // the second export's header "the header of another export" (the file refused) and a row's
+    // date unreadable; it is not read, with a note.
+    let unmarked;
+    let text = match line_start_marks(text) {
+        Some((count, first)) => {
+            unmarked = text.replace("\n\u{feff}", "\n").replace("\r\u{feff}", "\r");
+            ctx.note(if count == 1 {
+                format!(
+                    "a byte-order mark (U+FEFF) at the start of line {first} is not read: files \
+                     joined together, each saved with its own mark"
+                )
+            } else {
+                format!(
+                    "byte-order marks (U+FEFF) at the start of {} lines (the first on line \
+                     {first}) are not read: files joined together, each saved with its own mark",
+                    crate::diag::thousands(count)
+                )
+            });
+            unmarked.as_str()
+        }
+        None => text,
+    };
     // Zero bytes at the end: what a save or a copy cut off by a crash or a power cut leaves
     // (the file's length was kept, its last blocks never written). They were read as a row
     // of one long field, "check for a quote that is never closed", and the rows that were
@@ -671,7 +700,8 @@ pub fn read_table(
             .at(f.line, Some(f.column))
             .expected(format!(
                 "fields of at most {MAX_CSV_FIELD_BYTES} bytes (a date, a number, a unit or a \
-                 short note)"
+                 short note; a longer field costs its row, one over {} the file)",
+                crate::limits::human(MAX_CSV_FIELD_READ_BYTES as u64)
             ))
             .found(format!(
                 "`{}…`",
@@ -2163,6 +2193,7 @@ fn read_records(
             column_list(spec)
         ));
     }
+    table.dropped = (row_diags.len(), row_diags.first().cloned());
     diags.extend(row_diags);
     let rows = |n: usize| {
         if n == 1 {
@@ -2392,6 +2423,21 @@ fn overlong_field(text: &str, delimiter: u8) -> Option<OverlongField<'_>> {
 
 /// The 1-based line on which byte `at` of `b` lies, lines ending with `\n`, `\r\n` or a lone
 /// `\r` as the reader ends records.
+/// Lines after the first that start with a byte-order mark (U+FEFF): how many, and the first
+/// one's line; `None` when there are none.
+fn line_start_marks(text: &str) -> Option<(usize, u64)> {
+    let mut count = 0usize;
+    let mut first = None;
+    let b = text.as_bytes();
+    for (i, _) in text.match_indices('\u{feff}') {
+        if i > 0 && matches!(b[i - 1], b'\n' | b'\r') {
+            count += 1;
+            first.get_or_insert_with(|| line_at(b, i));
+        }
+    }
+    first.map(|f| (count, f))
+}
+
 fn line_at(b: &[u8], at: usize) -> u64 {
     1 + b[..at]
         .iter()
@@ -5777,6 +5823,15 @@ mod tests {
             format!(
                 "a field of {field} bytes starts here, longer than the limit of 1 MiB for one \
                  field; the file cannot be used"
+            )
+        );
+        // Both limits, so the two numbers do not contradict each other (attack22: "longer than
+        // the limit of 1 MiB" beside "expected: fields of at most 4096 bytes").
+        assert_eq!(
+            d[0].expected.as_deref(),
+            Some(
+                "fields of at most 4096 bytes (a date, a number, a unit or a short note; a longer \
+                 field costs its row, one over 1 MiB the file)"
             )
         );
         assert_eq!(

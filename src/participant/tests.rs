@@ -290,6 +290,114 @@ fn links_fifos_and_directories_are_refused_naming_the_file() {
     assert_eq!(data.weights[0].weight.kg(), 80.0);
 }
 
+/// A socket under an input's name is named for what it is (attack22: opening one fails with
+/// `ENXIO`, and the message read "No such device or address (os error 6)"); a profile that
+/// cannot be read says that the participant is not reported (it said "the participant is
+/// reported without it" beside "participant left out").
+#[cfg(unix)]
+#[test]
+fn a_socket_is_named_and_an_unreadable_profile_leaves_the_participant_out() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    let _socket = std::os::unix::net::UnixListener::bind(dir.path.join("labs.csv")).unwrap();
+    let loaded = load_participant(&p, &dir, as_of());
+    assert_eq!(loaded.diagnostics.len(), 1, "{:#?}", loaded.diagnostics);
+    let d = &loaded.diagnostics[0];
+    assert_eq!(d.file, "participants/P1/labs.csv");
+    assert_eq!(
+        d.message,
+        "cannot read the file (it is a socket, not a regular file; nothing was read from it \
+         (put the file itself here))"
+    );
+    assert!(loaded.data.is_some());
+
+    let elsewhere = tmp.path().join("profile-elsewhere.yaml");
+    fs::write(&elsewhere, PROFILE).unwrap();
+    fs::remove_file(dir.path.join("profile.yaml")).unwrap();
+    std::os::unix::fs::symlink(&elsewhere, dir.path.join("profile.yaml")).unwrap();
+    let loaded = load_participant(&p, &dir, as_of());
+    assert!(loaded.data.is_none());
+    let d = loaded
+        .diagnostics
+        .iter()
+        .find(|d| d.file == "participants/P1/profile.yaml")
+        .unwrap();
+    assert!(d.message.contains("symbolic link"), "{d}");
+    assert_eq!(
+        d.hint.as_deref(),
+        Some(
+            "the participant is not reported until this file can be read; other participants \
+             are not affected"
+        )
+    );
+}
+
+/// An input saved under a name that starts as its own (attack22): `weights.csv.txt` (a system
+/// that hides extensions), `Weights.xlsx`, `weights.tsv`, `weights`, `weights.csv ` with a
+/// space at its end, `.сsv` with a Cyrillic `с`, or a zero-width space in the name, was passed
+/// over without a word while the folder had no `weights.csv`: the participant was reported
+/// without weigh-ins and `check` had nothing to report. Each is now a warning saying which input
+/// the folder lacks; beside the input itself such a name (`weights-2025.xlsx`) is left alone.
+#[test]
+fn an_input_saved_under_another_name_is_named_not_passed_over() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let weights: &[u8] = b"date,weight,unit\n2026-04-02,80,kg\n";
+    for name in [
+        "weights.csv.txt",
+        "Weights.xlsx",
+        "weights.tsv",
+        "weights",
+        "weights.csv ",
+        "weights.\u{441}sv",
+        "weights\u{200b}.csv",
+    ] {
+        let dir = participant(
+            tmp.path(),
+            "P1",
+            &[("profile.yaml", PROFILE.as_bytes()), (name, weights)],
+        );
+        let loaded = load_participant(&p, &dir, as_of());
+        assert!(loaded.data.as_ref().unwrap().weights.is_empty());
+        assert_eq!(
+            loaded.diagnostics.len(),
+            1,
+            "{name}: {:#?}",
+            loaded.diagnostics
+        );
+        let d = &loaded.diagnostics[0];
+        assert_eq!(d.severity, Severity::Warning);
+        let shown = name.replace('\u{200b}', "\\u{200b}");
+        assert_eq!(
+            d.message,
+            format!("`{shown}` is not an input file the tool reads; it is ignored")
+        );
+        assert_eq!(
+            d.hint.as_deref(),
+            Some(
+                "this folder has no `weights.csv`: if this file holds it, save it as \
+                 `weights.csv` (CSV text: comma-, semicolon- or tab-separated), named exactly so"
+            ),
+            "{name}"
+        );
+        fs::remove_file(dir.path.join(name)).unwrap();
+    }
+    // Beside the input itself, a file of another kind named like it is no one's business.
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", PROFILE.as_bytes()),
+            ("weights.csv", weights),
+            ("weights-2025.xlsx", b"PK"),
+        ],
+    );
+    let loaded = load_participant(&p, &dir, as_of());
+    assert!(loaded.diagnostics.is_empty(), "{:#?}", loaded.diagnostics);
+    assert_eq!(loaded.data.unwrap().weights.len(), 1);
+}
+
 #[cfg(unix)]
 #[test]
 fn a_folder_swapped_for_a_link_after_listing_is_not_followed() {
@@ -606,6 +714,59 @@ fn a_hidden_folder_with_a_profile_is_named() {
         "{diags:#?}"
     );
     assert_eq!(diags.len(), 2, "{diags:#?}");
+}
+
+/// What file systems and operating systems put in any folder is no participant (attack22): a
+/// Mac's zip archive of the participant folders unpacked `__MACOSX/` beside them, which was
+/// "participant folder `__MACOSX` has no profile.yaml" (exit code 4 on every run); a participants
+/// folder that is a mount point holds `lost+found/`, which was "not a usable participant id …
+/// rename the folder"; Windows Explorer's `Thumbs.db` and `desktop.ini` were files "to move"
+/// (exit code 1).
+#[test]
+fn file_system_and_operating_system_entries_are_not_participants() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    participant(tmp.path(), "P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    participant(
+        tmp.path(),
+        "__MACOSX/P1",
+        &[("._profile.yaml", b"\0\x05\x16\x07")],
+    );
+    participant(tmp.path(), "lost+found", &[]);
+    let base = tmp.path().join("participants");
+    fs::write(base.join("Thumbs.db"), b"x").unwrap();
+    fs::write(base.join("desktop.ini"), b"x").unwrap();
+    let (dirs, diags) = discover(&p);
+    assert_eq!(
+        dirs.iter().map(|d| d.id.as_str()).collect::<Vec<_>>(),
+        vec!["P1"]
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    // A folder of another name is still named.
+    participant(tmp.path(), "lost_found", &[]);
+    let (dirs, _) = discover(&p);
+    assert_eq!(dirs.len(), 2);
+}
+
+/// A participant's files one folder down (an archive unpacked into a folder of its own,
+/// `P1/P1/profile.yaml`): the error's hint said "add profile.yaml to the folder" (attack22); it
+/// now names the folder that holds it.
+#[test]
+fn a_profile_one_folder_down_is_named_in_the_hint() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    let dir = participant(tmp.path(), "P1", &[]);
+    participant(tmp.path(), "P1/P1", &[("profile.yaml", PROFILE.as_bytes())]);
+    let loaded = load_participant(&p, &dir, as_of());
+    assert!(loaded.data.is_none());
+    assert_eq!(loaded.diagnostics.len(), 1, "{:#?}", loaded.diagnostics);
+    assert_eq!(
+        loaded.diagnostics[0].hint.as_deref(),
+        Some(
+            "the folder `P1` inside it holds a profile.yaml: move that folder's files up into \
+             participants/P1/ (an archive unpacked into a folder of its own)"
+        )
+    );
 }
 
 /// The tidy metrics' rows in the file and rows used: a file of 7 data rows of which 4 are

@@ -325,3 +325,23 @@ pub struct Program {
     /// agrees with the `outcomes` module's cut-off).
     pub underweight_line: Option<u64>,
 }
+
+impl Program {
+    /// The date of the instant `now` where the participants are: in `input.time_zone` when
+    /// program.yaml sets it, else on the machine's clock (its `TZ`). The run's "today" (the
+    /// default `--as-of`): on a machine whose day is behind the participants' (a server in UTC
+    /// or America, a program in New Zealand), a weigh-in of the participants' today was "in the
+    /// future" and dropped, and the run ended with warnings.
+    pub fn date_at(&self, now: chrono::DateTime<chrono::Utc>) -> NaiveDate {
+        match self
+            .def
+            .input
+            .time_zone
+            .as_deref()
+            .and_then(files::LocalZone::parse)
+        {
+            Some(zone) => zone.local(now.fixed_offset()).date(),
+            None => now.with_timezone(&chrono::Local).date_naive(),
+        }
+    }
+}

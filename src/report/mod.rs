@@ -365,8 +365,8 @@ fn participant_charts(report: &ParticipantReport) -> BTreeMap<String, Chart> {
     charts
 }
 
-/// A page of the program's own templates that does not show the cautions, found by
-/// [`check_template_cautions`], with the error a run stops on for it.
+/// A page of the program's own templates that cannot be made or does not show the cautions,
+/// found by [`check_template_cautions`], with the error a run stops on for it.
 #[derive(Debug)]
 pub enum CautionsMissing {
     /// The participant page.
@@ -376,14 +376,16 @@ pub enum CautionsMissing {
 }
 
 /// For `check`: whether the pages the program's own templates make — the participant page
-/// and the group report's page — show the cautions, judged by the check a run makes before it
-/// publishes ([`check_cautions`], the same words). The participant page is made from `data`'s
-/// report model built without module results (`check` computes nothing), with the cautions
-/// the program's settings give, which are the run's; without a usable participant it is not
-/// judged. The group page is made from a group report of nobody (its cautions rest only on
-/// the program's `privacy.min_cell_size`, not on its figures). `Ok` with the built-in
-/// templates, and when a page cannot be made at all (a template that needs a module's
-/// figures): only a run, with the figures, can tell then.
+/// and the group report's page — can be made and show the cautions, judged by the check a run
+/// makes before it publishes ([`check_cautions`], the same words). The participant page is
+/// made for `data` as a run makes it: from the module results computed for that participant in
+/// the plan's period, with the cautions the program's settings give, which are the run's; a
+/// page that cannot be made (a misspelt field, a partial that does not exist, what a browser
+/// would parse as a script) is the error the run stops on for that participant. Without a usable
+/// participant it is not judged. The group page is made from a group report of nobody (its
+/// cautions rest only on the program's `privacy.min_cell_size`, not on its figures); a field
+/// that report lacks is left to the run, which has the figures, but any other failure (a
+/// partial that does not exist) is the run's. `Ok` with the built-in templates.
 pub fn check_template_cautions(
     templates: &TemplateSet,
     plan: &Scope<'_>,
@@ -393,13 +395,21 @@ pub fn check_template_cautions(
         return Ok(());
     }
     if let Some(data) = data {
-        let report = participant::build(plan, data, &ModuleResults::default(), &[]);
+        // The page the run makes for this participant. Made without the module results, a
+        // page that needs them could not be made, so any failure was passed over, and with it
+        // a misspelt field or a missing partial: `check` said "ok" and the run stopped on the
+        // first participant with exit code 6.
+        let results = plan
+            .modules
+            .run(&plan.program.info, plan.period, plan.as_of, data);
+        let report = participant::build(plan, data, &results, &[]);
         let charts = participant_charts(&report);
         let drawn = draw_all(&charts);
-        if let Ok(html) = templates.render("participant.html", &report.ctx, svg_map(&drawn)) {
-            check_cautions(templates, "participant.html", &html, &report.ctx.cautions)
-                .map_err(CautionsMissing::Participant)?;
-        }
+        let html = templates
+            .render("participant.html", &report.ctx, svg_map(&drawn))
+            .map_err(CautionsMissing::Participant)?;
+        check_cautions(templates, "participant.html", &html, &report.ctx.cautions)
+            .map_err(CautionsMissing::Participant)?;
     }
     let opts = crate::group::GroupOptions {
         min_cell_size: plan.program.def.privacy.min_cell_size,
@@ -409,9 +419,11 @@ pub fn check_template_cautions(
     let model = group::build(plan, &crate::group::summarize(&[], &opts), 0);
     let charts: BTreeMap<String, Chart> = model.charts.iter().cloned().collect();
     let drawn = draw_all(&charts);
-    if let Ok(html) = templates.render("group.html", &model.ctx, svg_map(&drawn)) {
-        check_cautions(templates, "group.html", &html, &model.ctx.cautions)
-            .map_err(CautionsMissing::Group)?;
+    match templates.render("group.html", &model.ctx, svg_map(&drawn)) {
+        Ok(html) => check_cautions(templates, "group.html", &html, &model.ctx.cautions)
+            .map_err(CautionsMissing::Group)?,
+        Err(RenderError::Template(m)) if m.contains("Failed to access variable") => {}
+        Err(e) => return Err(CautionsMissing::Group(e)),
     }
     Ok(())
 }

@@ -358,6 +358,49 @@ fn outputs_are_owner_only_unless_group_readable() {
     assert_same_tree(&o, &g);
 }
 
+/// `--group-readable` under `umask 077` (a hardened server's, or a crontab's): the modes given
+/// at creation were cut by the umask, and the outputs came out 0700 and 0600, which the reports
+/// group could not read (attack22). The modes are now set whatever the umask; owner-only stays
+/// owner-only under `umask 000`.
+#[test]
+fn output_modes_do_not_depend_on_the_umask() {
+    use std::os::unix::fs::PermissionsExt;
+    let t = ProgramTest::demo(2);
+    let mode = |p: &Path| std::fs::metadata(p).unwrap().permissions().mode() & 0o777;
+    let under = |umask: &str, out_dir: &str, extra: &[&str]| {
+        let status = Command::new("sh")
+            .arg("-c")
+            .arg(format!("umask {umask} && exec \"$0\" \"$@\""))
+            .arg(BIN)
+            .args([
+                "run",
+                t.dir.to_str().unwrap(),
+                "--as-of",
+                AS_OF,
+                "--out",
+                out_dir,
+            ])
+            .args(["--formats", "html"])
+            .args(extra)
+            .current_dir(&t.dir)
+            .env_clear()
+            .env("PATH", std::env::var("PATH").unwrap_or_default())
+            .status()
+            .unwrap();
+        assert_eq!(status.code(), Some(0));
+    };
+    let g = out(&t, "shared");
+    under("077", &g, &["--group-readable"]);
+    assert_eq!(mode(Path::new(&g)), 0o750);
+    assert_eq!(mode(&Path::new(&g).join("participants")), 0o750);
+    assert_eq!(mode(&Path::new(&g).join("participants/SG-001.html")), 0o640);
+    assert_eq!(mode(&Path::new(&g).join("manifest.json")), 0o640);
+    let o = out(&t, "private");
+    under("000", &o, &[]);
+    assert_eq!(mode(Path::new(&o)), 0o700);
+    assert_eq!(mode(&Path::new(&o).join("participants/SG-001.html")), 0o600);
+}
+
 #[test]
 fn an_input_error_that_leaves_a_participant_out_is_logged_at_error_level() {
     // The sample leaves SG-049 out (no profile.yaml) and ends with exit code 4; its log line

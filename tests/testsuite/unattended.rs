@@ -843,6 +843,61 @@ fn a_shard_json_never_makes_a_folder_of_someone_elses_replaceable() {
     assert_eq!(o.code, 0, "{o:?}");
 }
 
+/// "Today" is the participants' day when program.yaml names their time zone (attack22): a cron
+/// job on a machine whose day is behind theirs (a server in UTC or America, a program in New
+/// Zealand) took a weigh-in of their today for future data ("date … is in the future (after
+/// the as-of date …); the row is dropped"), and every such run ended with warnings. Here the
+/// machine's clock is UTC−12 and the program's zone UTC+14, so the two dates always differ.
+#[test]
+fn today_is_the_participants_day_when_the_program_names_their_time_zone() {
+    let t = with_folders(&["clean-a"]);
+    let theirs = (chrono::Utc::now() + chrono::Duration::hours(14)).date_naive();
+    let start = theirs - chrono::Duration::days(60);
+    let yaml = std::fs::read_to_string(t.dir.join("program.yaml"))
+        .unwrap()
+        .replace("start: 2026-04-01", &format!("start: {start}"))
+        .replace(
+            "end: 2026-09-30",
+            &format!("end: {}", theirs + chrono::Duration::days(60)),
+        );
+    std::fs::write(
+        t.dir.join("program.yaml"),
+        format!("{yaml}input:\n  time_zone: \"+14:00\"\n"),
+    )
+    .unwrap();
+    let folder = t.dir.join("participants/clean-a");
+    for f in ["activity.csv", "intake.csv", "labs.csv", "sessions.csv"] {
+        std::fs::remove_file(folder.join(f)).unwrap();
+    }
+    let profile = std::fs::read_to_string(folder.join("profile.yaml"))
+        .unwrap()
+        .replace("enrolled: 2026-04-01", &format!("enrolled: {start}"));
+    std::fs::write(folder.join("profile.yaml"), profile).unwrap();
+    let mut weights = String::from("date,weight,unit\n");
+    for k in (0..30).rev() {
+        let day = theirs - chrono::Duration::days(k);
+        weights.push_str(&format!("{day},{:.1},kg\n", 80.0 - 0.05 * (30 - k) as f64));
+    }
+    std::fs::write(folder.join("weights.csv"), weights).unwrap();
+    // POSIX form (no zone database needed): 12 hours behind UTC.
+    let checked = t.run_env(&["check", "{dir}"], &[("TZ", "<-12>12")]);
+    assert_eq!(checked.code, 0, "{}", checked.stdout);
+    assert!(
+        !checked.stdout.contains("in the future"),
+        "{}",
+        checked.stdout
+    );
+    // Without the zone, the machine's day is the run's: the last weigh-ins are in its future.
+    std::fs::write(t.dir.join("program.yaml"), &yaml).unwrap();
+    let checked = t.run_env(&["check", "{dir}"], &[("TZ", "<-12>12")]);
+    assert_eq!(checked.code, 1, "{}", checked.stdout);
+    assert!(
+        checked.stdout.contains("in the future"),
+        "{}",
+        checked.stdout
+    );
+}
+
 /// A participant who withdrew consent on 2026-06-15 and whose scale and apps kept syncing into
 /// their folder: every later monthly run ended with exit code 1, five warnings giving the
 /// number and dates of the rows after the withdrawal (also in the participant's own report),

@@ -145,6 +145,92 @@ fn a_thousand_rows_dropped_are_counted_with_a_separator() {
     );
 }
 
+/// Rows dropped for their shape count as rows that did not read (attack22): a comma-separated
+/// file of weights with decimal commas, `2026-04-10,71,1,kg`, lost every row as "a field too
+/// many" with warnings only, and the run ended "with warnings" (exit code 1) without a
+/// weigh-in. Now the file is an error, located at the first such row, as for any other file
+/// none of whose rows reads.
+#[test]
+fn a_file_whose_rows_all_have_the_wrong_number_of_fields_is_an_error() {
+    let (w, diags) = read(
+        "date,weight,unit\n2026-04-10,71,1,kg\n2026-04-11,70,9,kg\n2026-04-12,70,8,kg\n",
+        &window(),
+    );
+    assert_eq!(w.as_deref().map(<[WeighIn]>::len), Some(0));
+    let errors: Vec<_> = diags
+        .iter()
+        .filter(|d| d.severity == Severity::Error)
+        .collect();
+    assert_eq!(errors.len(), 1, "{diags:#?}");
+    assert_eq!(
+        errors[0].message,
+        "no row of the file could be read: 3 rows dropped, each named in a warning; the file \
+         is not used"
+    );
+    assert_eq!(errors[0].line, Some(2));
+    assert_eq!(
+        errors[0].found.as_deref(),
+        Some(
+            "row has 4 fields but the header has 3; the row is dropped (4 fields: \
+             `2026-04-10,71,1,kg`)"
+        )
+    );
+    // Counted with the rows that failed on a value, the first of either named.
+    let (w, diags) = read(
+        "date,weight,unit\n2026-04-10,71.1,kgs x\n2026-04-11,70,9,kg\n",
+        &window(),
+    );
+    assert_eq!(w.as_deref().map(<[WeighIn]>::len), Some(0));
+    let errors: Vec<_> = diags
+        .iter()
+        .filter(|d| d.severity == Severity::Error)
+        .collect();
+    assert_eq!(errors.len(), 1, "{diags:#?}");
+    assert!(
+        errors[0].message.contains(": 2 rows dropped"),
+        "{}",
+        errors[0]
+    );
+    assert_eq!(errors[0].line, Some(2));
+    // One row read is enough for warnings only.
+    let (w, diags) = read(
+        "date,weight,unit\n2026-04-10,71,1,kg\n2026-04-11,70.9,kg\n",
+        &window(),
+    );
+    assert_eq!(w.map(|w| w.len()), Some(1));
+    only_warnings(&diags);
+}
+
+/// Exports joined together, each saved with a byte-order mark (`cat a.csv b.csv`; Excel's
+/// "CSV UTF-8" writes one): the second export's header, behind its invisible mark, was "the
+/// header of another export" and the whole file was refused; a row behind one lost its date.
+/// A mark at the start of a line is not read, with a note.
+#[test]
+fn byte_order_marks_of_joined_exports_are_not_read() {
+    let header = "date,weight,unit";
+    let text = format!(
+        "\u{feff}{header}\r\n2026-04-10,71.1,kg\r\n\u{feff}{header}\r\n2026-04-11,70.9,kg\r\n\u{feff}2026-04-12,70.8,kg\r\n"
+    );
+    let mut diags = Vec::new();
+    let c = ctx("weights.csv");
+    let w =
+        parse_weights(&text, &CsvOptions::default(), &c, &window(), &mut diags).expect("usable");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(
+        w.iter().map(|x| x.date).collect::<Vec<_>>(),
+        [d(2026, 4, 10), d(2026, 4, 11), d(2026, 4, 12)]
+    );
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.contains(
+            &"byte-order marks (U+FEFF) at the start of 2 lines (the first on line 3) are not \
+              read: files joined together, each saved with its own mark"
+                .to_string()
+        ),
+        "{notes:?}"
+    );
+}
+
 /// A file none of whose rows reads gives nothing: an error on the file (exit code 4), besides
 /// each row's warning; one row read is enough for warnings only.
 #[test]
