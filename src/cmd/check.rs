@@ -916,11 +916,9 @@ mod tests {
         assert_eq!(lines.iter().filter(|v| v["severity"] == "note").count(), 30);
     }
 
-    /// A template of the program's own that cannot be loaded stopped every run (exit 6, "rendering
-    /// failed") while `check` said "program … ok" and exited 0: the templates are now loaded as
-    /// the run loads them.
-    #[test]
-    fn a_template_the_run_cannot_load_is_an_error_of_check() {
+    /// A program of one participant, P1, whose `report.templates` is its empty `templates/`
+    /// folder (returned beside the program's).
+    fn program_with_own_templates() -> (tempfile::TempDir, std::path::PathBuf) {
         let tmp = program_dir();
         add(tmp.path(), "P1", &[("profile.yaml", &profile("P1"))]);
         let yaml = tmp.path().join("program.yaml");
@@ -929,6 +927,15 @@ mod tests {
         fs::write(&yaml, text).unwrap();
         let t = tmp.path().join("templates");
         fs::create_dir(&t).unwrap();
+        (tmp, t)
+    }
+
+    /// A template of the program's own that cannot be loaded stopped every run (exit 6, "rendering
+    /// failed") while `check` said "program … ok" and exited 0: the templates are now loaded as
+    /// the run loads them.
+    #[test]
+    fn a_template_the_run_cannot_load_is_an_error_of_check() {
+        let (tmp, t) = program_with_own_templates();
         // A dumped template, edited: clean, then with an unclosed block, then with a script.
         // (Clean means with the cautions: without them a run stops too, and so does `check`.)
         fs::write(
@@ -976,14 +983,7 @@ mod tests {
     /// module results and any failure passed over. The page is now made as the run makes it.
     #[test]
     fn a_template_page_the_run_cannot_make_is_an_error_of_check() {
-        let tmp = program_dir();
-        add(tmp.path(), "P1", &[("profile.yaml", &profile("P1"))]);
-        let yaml = tmp.path().join("program.yaml");
-        let mut text = fs::read_to_string(&yaml).unwrap();
-        text.push_str("report: { templates: templates }\n");
-        fs::write(&yaml, text).unwrap();
-        let t = tmp.path().join("templates");
-        fs::create_dir(&t).unwrap();
+        let (tmp, t) = program_with_own_templates();
         for (page, found) in [
             (
                 "<p>{{participant.idd}}</p>\n{{> cautions}}\n",
