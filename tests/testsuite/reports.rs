@@ -461,6 +461,11 @@ fn report_with_two_april_weigh_ins() -> String {
     let kept: Vec<&str> = text.lines().take(3).collect();
     assert!(kept[1].starts_with("2026-04-0"), "{kept:?}");
     std::fs::write(&weights, kept.join("\n") + "\n").unwrap();
+    september_html_of_sg001(&t)
+}
+
+/// SG-001's September HTML report (as of 5 October) from a run of `t` into a folder beside it.
+fn september_html_of_sg001(t: &ProgramTest) -> String {
     let out = t.dir.parent().unwrap().join("out");
     let out_s = out.to_string_lossy().into_owned();
     let r = t.run(&[
@@ -488,22 +493,7 @@ fn report_with_two_april_weigh_ins() -> String {
 fn a_report_without_any_weigh_in_says_so_where_the_weight_would_be() {
     let t = ProgramTest::demo(2);
     std::fs::remove_file(t.dir.join("participants/SG-001/weights.csv")).unwrap();
-    let out = t.dir.parent().unwrap().join("out");
-    let out_s = out.to_string_lossy().into_owned();
-    let r = t.run(&[
-        "run",
-        "{dir}",
-        "--period",
-        "2026-09",
-        "--as-of",
-        "2026-10-05",
-        "--out",
-        &out_s,
-        "--formats",
-        "html",
-    ]);
-    assert!(r.code <= 1, "{r:?}");
-    let html = std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap();
+    let html = september_html_of_sg001(&t);
     let section = |id: &str| {
         let s = &html[html.find(&format!("aria-labelledby=\"{id}\"")).expect(id)..];
         s[..s.find("</section>").expect("its end")].to_string()
