@@ -656,6 +656,16 @@ impl Raw {
     fn count(&self, k: Kind) -> u64 {
         self.counts.get(&k).copied().unwrap_or(0)
     }
+
+    /// The person tokens (`tokens`, one per enrolled row) of those with a value in week `w`.
+    fn week_people(&self, w: u32, tokens: &[u64]) -> BTreeSet<u64> {
+        self.week_idx
+            .get(&w)
+            .into_iter()
+            .flatten()
+            .map(|&i| tokens[i])
+            .collect()
+    }
 }
 
 fn is_started(r: &ParticipantSummary) -> bool {
@@ -1358,13 +1368,7 @@ pub(super) fn build(
                 .iter()
                 .map(|w| {
                     let mut b = WeekBounds::open(started, raw.count(Kind::Enrolled));
-                    let set: BTreeSet<u64> = raw
-                        .week_idx
-                        .get(w)
-                        .into_iter()
-                        .flatten()
-                        .map(|&i| tokens[i])
-                        .collect();
+                    let set = raw.week_people(*w, &tokens);
                     for p in &prior_counts {
                         if set.is_subset(p) {
                             b.hi = b.hi.min(p.len() as u64 - u64::from(set.len() < p.len()));
@@ -1520,13 +1524,7 @@ pub(super) fn build(
                 known: weeks
                     .iter()
                     .map(|w| {
-                        let people: BTreeSet<u64> = raw
-                            .week_idx
-                            .get(w)
-                            .into_iter()
-                            .flatten()
-                            .map(|&i| tokens[i])
-                            .collect();
+                        let people = raw.week_people(*w, &tokens);
                         !people.is_empty() && printed_before.contains(&people)
                     })
                     .collect(),
