@@ -686,6 +686,21 @@ fn log_binds(lower: f64, logged: Option<f64>) -> bool {
     logged.is_some_and(|l| l < lower)
 }
 
+/// How often to weigh in, as the target is set: "once a week", "twice a week", "3 times a
+/// week", "1.5 times a week" (a target of 1 read "about 1 times a week").
+fn weigh_in_frequency(per_week: f64) -> String {
+    let r = (per_week * 10.0).round() / 10.0;
+    if (r - 1.0).abs() < 1e-9 {
+        "once a week".into()
+    } else if (r - 2.0).abs() < 1e-9 {
+        "twice a week".into()
+    } else if (r - r.round()).abs() < 1e-9 {
+        format!("{} times a week", fmt::fixed(r, 0))
+    } else {
+        format!("{} times a week", fmt::fixed(r, 1))
+    }
+}
+
 fn pace(units: UnitSystem) -> &'static str {
     match units {
         UnitSystem::Metric => "about 5 km/h",
@@ -768,8 +783,8 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
                 "There are not enough recent weigh-ins to see how your weight is moving, so this report makes no suggestions this month.".into()
             });
             g.paragraphs.push(format!(
-                "Weighing in about {} times a week, at the same time of day, lets next month's report show where you stand. {staff}",
-                fmt::fixed(f.weigh_ins_target, 0)
+                "Weighing in about {}, at the same time of day, lets next month's report show where you stand. {staff}",
+                weigh_in_frequency(f.weigh_ins_target)
             ));
             g
         }
@@ -898,8 +913,8 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     let direction_known = state.status == TrendStatus::Regaining || state.still_rising;
     if !direction_known {
         g.paragraphs.push(format!(
-            "Until it is clear whether your weight is still going up, this report suggests no change to how much you eat or how active you are. Weighing in about {} times a week, at the same time of day, for the next few weeks will show whether it has steadied; going back to the habits that worked for you earlier is a good first step meanwhile.",
-            fmt::fixed(f.weigh_ins_target, 0)
+            "Until it is clear whether your weight is still going up, this report suggests no change to how much you eat or how active you are. Weighing in about {}, at the same time of day, for the next few weeks will show whether it has steadied; going back to the habits that worked for you earlier is a good first step meanwhile.",
+            weigh_in_frequency(f.weigh_ins_target)
         ));
     } else if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
         g.options_intro =
@@ -1186,8 +1201,8 @@ fn maintain(
     }
     if state.status == TrendStatus::Insufficient {
         g.paragraphs.push(format!(
-            "Weighing in about {} times a week helps you notice early if your weight starts to creep up.",
-            fmt::fixed(f.weigh_ins_target, 0)
+            "Weighing in about {} helps you notice early if your weight starts to creep up.",
+            weigh_in_frequency(f.weigh_ins_target)
         ));
     }
     g.paragraphs.push(format!(
@@ -1975,6 +1990,25 @@ mod tests {
             g.paragraphs
         );
         assert!(g.paragraphs[0].starts_with("You have reached your target"));
+    }
+
+    #[test]
+    fn a_weigh_in_target_is_written_as_people_say_it() {
+        // Own trial (tryout22), `weigh_ins_per_week: 1`: "Weighing in about 1 times a week".
+        assert_eq!(weigh_in_frequency(1.0), "once a week");
+        assert_eq!(weigh_in_frequency(2.0), "twice a week");
+        assert_eq!(weigh_in_frequency(3.0), "3 times a week");
+        assert_eq!(weigh_in_frequency(1.5), "1.5 times a week");
+        let mut f = facts();
+        f.weigh_ins_target = 1.0;
+        let mut s = st(Regaining);
+        s.status = TrendStatus::Insufficient;
+        let g = compose(Phase::TooLittleData, &s, &Thresholds::default(), &f);
+        assert!(
+            g.paragraphs[1].starts_with("Weighing in about once a week, at the same time of day,"),
+            "{:?}",
+            g.paragraphs
+        );
     }
 
     #[test]
