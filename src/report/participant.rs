@@ -339,6 +339,14 @@ pub fn build(
         Vec::new()
     };
 
+    // Weigh-ins on one day only: that day's mean is both the starting weight and the last one,
+    // so no change has been measured (one weigh-in in June 2025, November 2026's report read
+    // "Since you started: 0.0 kg", as if the weight had held for 18 months).
+    let change_measured = {
+        let mut days = crate::modules::run::weigh_in_days(data, plan.period.to);
+        days.dedup();
+        days.len() != 1
+    };
     let ctx = ParticipantReportContext {
         program: super::ProgramView::new(plan),
         participant: PersonView {
@@ -348,7 +356,7 @@ pub fn build(
         },
         headline: headline(
             v.trend.as_ref(),
-            v.outcomes.as_ref(),
+            v.outcomes.as_ref().filter(|_| change_measured),
             units,
             left.map(|w| (w, p.follow_up_weigh_ins())),
             // Joined within the last four weeks of the period: the trend has had no four
@@ -374,6 +382,7 @@ pub fn build(
             &v,
             units,
             plan.period.to,
+            change_measured,
             data.weights
                 .iter()
                 .map(|w| w.date)
@@ -467,11 +476,13 @@ fn change_words(
 }
 
 /// Key figures: current and starting weight, change, recent rate, BMI. `to` is the period's
-/// last day, `last_weigh_in` the day of the last weigh-in up to it.
+/// last day, `last_weigh_in` the day of the last weigh-in up to it; `change_measured` is false
+/// when every weigh-in is of one day, so the starting and last weights are the same reading.
 fn summary(
     v: &BuiltinViews,
     units: UnitSystem,
     to: NaiveDate,
+    change_measured: bool,
     last_weigh_in: Option<NaiveDate>,
 ) -> Vec<Kv> {
     let (trend, outcomes) = (v.trend.as_ref(), v.outcomes.as_ref());
@@ -498,7 +509,14 @@ fn summary(
     if let Some(b) = outcomes.and_then(|o| o.baseline_weight_kg) {
         summary.push(Kv::new("Starting weight", &fmt::weight(b, units)));
     }
-    if let (Some(c), Some(pc)) = (
+    if !change_measured {
+        if outcomes.and_then(|o| o.baseline_weight_kg).is_some() {
+            summary.push(Kv::new(
+                "Change since start",
+                "not known yet: your weigh-ins so far are all of one day",
+            ));
+        }
+    } else if let (Some(c), Some(pc)) = (
         change_words(trend, outcomes, units),
         outcomes.and_then(|o| o.change_percent),
     ) {
@@ -2419,6 +2437,7 @@ mod activity_unread_tests {
             &v,
             UnitSystem::Metric,
             NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+            true,
             None,
         )
         .into_iter()
@@ -2454,7 +2473,7 @@ mod activity_unread_tests {
             outcomes: None,
         };
         let to = NaiveDate::from_ymd_opt(2026, 9, 30).unwrap();
-        let row = &summary(&v, UnitSystem::Metric, to, None)[0];
+        let row = &summary(&v, UnitSystem::Metric, to, true, None)[0];
         assert_eq!(
             row.label,
             "Weight at your last weigh-in (15 Jul 2026, trend)"
@@ -2466,7 +2485,7 @@ mod activity_unread_tests {
             ..v
         };
         assert_eq!(
-            summary(&v, UnitSystem::Metric, to, None)[0].label,
+            summary(&v, UnitSystem::Metric, to, true, None)[0].label,
             "Current weight (trend)"
         );
     }
@@ -2560,6 +2579,7 @@ mod activity_unread_tests {
                 v,
                 UnitSystem::Metric,
                 NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+                true,
                 None,
             )
             .iter()

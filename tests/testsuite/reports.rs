@@ -513,6 +513,35 @@ fn a_report_without_any_weigh_in_says_so_where_the_weight_would_be() {
     assert!(html.contains("No weigh-in is recorded yet"), "the headline");
 }
 
+/// Someone whose only weigh-in was on the day they joined (own 18-month trial, LI-103: one
+/// clinic weigh-in in June 2025) read, in every later report, "Since you started: 0.0 kg" in the
+/// headline and "Change since start 0.0 kg (0.0 %)": the starting and last weights are the same
+/// reading, so no change was measured, yet it read as a weight that had held.
+#[test]
+fn a_single_weigh_in_day_reports_no_change_since_the_start() {
+    let t = ProgramTest::demo(2);
+    let path = t.dir.join("participants/SG-001/weights.csv");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let mut lines = text.lines();
+    let (header, first) = (lines.next().unwrap(), lines.next().unwrap());
+    // The first day's weigh-ins (a day may hold more than one).
+    let day = &first[..10];
+    let kept: Vec<&str> = std::iter::once(first)
+        .chain(lines.filter(|l| l.starts_with(day)))
+        .collect();
+    std::fs::write(&path, format!("{header}\n{}\n", kept.join("\n"))).unwrap();
+    let html = september_html_of_sg001(&t);
+    let summary = &html[html.find("aria-labelledby=\"h-summary\"").expect("summary")..];
+    let summary = &summary[..summary.find("</section>").expect("its end")];
+    assert!(summary.contains("Starting weight"), "{summary}");
+    assert!(
+        summary.contains("not known yet: your weigh-ins so far are all of one day"),
+        "{summary}"
+    );
+    assert!(!summary.contains("0.0 kg ("), "{summary}");
+    assert!(!html.contains("Since you started"), "the headline");
+}
+
 /// The energy section's explanation said "The intake implied by your weight trend comes from a
 /// published model …; it often differs from logged intake" in a report that shows no implied
 /// intake anywhere, neither above nor in the weekly table (two weigh-ins: no trend). It now
