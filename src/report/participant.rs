@@ -293,9 +293,30 @@ pub fn build(
                 left.filter(|w| *w < plan.period.from),
                 unread == ActivityUnread::NoLog,
             );
+            // The weeks the energy module read off a trend: for someone who stopped the
+            // program, it was given the records up to the day they left, whose trend ends at
+            // the last weigh-in on or before it, not the trend the chart draws through their
+            // follow-up weigh-ins. Weeks between that weigh-in and the day they left have no
+            // implied intake for want of a trend, not because the weight moved implausibly
+            // (own trial, LI-004: last weigh-in 2 Jun, left 20 Jun; the note blamed a fall or
+            // rise for the weeks of 8 and 15 June).
+            let energy_trend_end = p.withdrew.filter(|_| p.follow_up_weigh_ins()).map(|w| {
+                data.weights
+                    .iter()
+                    .map(|x| x.date)
+                    .filter(|d| *d <= w)
+                    .max()
+            });
             let trend_span = v.trend.as_ref().and_then(|t| {
                 let pts = &t.weight_trend.points;
-                Some((pts.first()?.date, pts.last()?.date))
+                let (first, last) = (pts.first()?.date, pts.last()?.date);
+                match energy_trend_end {
+                    Some(end) => {
+                        let end = end?.min(last);
+                        (end >= first).then_some((first, end))
+                    }
+                    None => Some((first, last)),
+                }
             });
             if let Some(note) = implied_gap_note(&e.weekly_energy, trend_span) {
                 view.chart.alt.push_str(note);
