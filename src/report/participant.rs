@@ -966,16 +966,19 @@ fn plateau_evidence(r: &PlateauRow, units: UnitSystem) -> String {
         r.implied_intake_during_kcal_per_day,
     ) {
         parts.push(format!(
-            "Your weight trend implies about {} a day before the plateau and about {} a day during it.",
+            "Your weight trend implies about {} a day early in the program and about {} a day during the plateau.",
             fmt::kcal(before),
             fmt::kcal(during)
         ));
     }
+    // The energy module's expected slope is at the intake the trend implied early in the
+    // program (days 7–34), not at the logged intake: "With the intake you logged, the model
+    // expects …" stood in nine of the sample's September reports (SG-003, SG-004, …).
     if let (Some(expected), Some(observed)) =
         (r.expected_slope_kg_per_week, r.observed_slope_kg_per_week)
     {
         parts.push(format!(
-            "With the intake you logged, the model expects a change of {} at this weight; the trend shows {}.",
+            "Eating as in those early weeks, the model expects a change of {} at your weight when the plateau began; the trend shows {}.",
             fmt::rate_per_week(expected, units),
             fmt::rate_per_week(observed, units)
         ));
@@ -2577,6 +2580,31 @@ mod activity_unread_tests {
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
+        );
+    }
+
+    /// The plateau's numbers said "With the intake you logged, the model expects a change of
+    /// −0.28 kg/week" (sample, September, SG-003), but the energy module's expected slope is at
+    /// the intake the weight trend implied early in the program, not at any logged intake.
+    #[test]
+    fn a_plateaus_expected_change_is_said_to_be_at_the_early_intake() {
+        use cohortpress_metric_energy::view::{PlateauCause, PlateauRow};
+        let r = PlateauRow {
+            start: NaiveDate::from_ymd_opt(2026, 7, 1).unwrap(),
+            end: NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+            observed_slope_kg_per_week: Some(0.03),
+            expected_slope_kg_per_week: Some(-0.28),
+            implied_intake_before_kcal_per_day: Some(2330.0),
+            implied_intake_during_kcal_per_day: Some(2814.0),
+            classification: PlateauCause::IntakeDrift,
+            evidence: String::new(),
+            intake_change_kcal_per_day: Some(484.0),
+            intake_change_lower_kcal_per_day: Some(300.0),
+            intake_change_upper_kcal_per_day: Some(668.0),
+        };
+        assert_eq!(
+            plateau_evidence(&r, UnitSystem::Metric),
+            "Your weight trend implies about 2,330 kcal a day early in the program and about 2,814 kcal a day during the plateau. Eating as in those early weeks, the model expects a change of −0.28 kg/week at your weight when the plateau began; the trend shows +0.03 kg/week."
         );
     }
 
