@@ -1576,11 +1576,11 @@ fn energy_section(
                 .map(|(c, _)| c)
                 .collect()
         };
-        table.header = pick(std::mem::take(&mut table.header));
         table.rows = std::mem::take(&mut table.rows)
             .into_iter()
             .map(pick)
             .collect();
+        table.header = pick(std::mem::take(&mut table.header));
     }
     let [exp, logged, implied] = series;
     // The description names the series drawn, as the legend does (no food log: no logged
