@@ -118,6 +118,9 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
         plan.period.to,
         plan.as_of
     );
+    if let Some(note) = plan.ended_note() {
+        tracing::info!("{note}");
+    }
 
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(plan.jobs)
