@@ -75,6 +75,36 @@ pub struct ReleaseRecord {
     pub withdrawals: Option<Vec<String>>,
 }
 
+impl ReleaseRecord {
+    /// Whether `other` records the same release, whatever the as-of date of its run and the
+    /// withdrawals it knew (see [`Ledger::record`]). Every field is named, so a field added
+    /// later is compared or left out on purpose.
+    fn same_but_as_of(&self, other: &ReleaseRecord) -> bool {
+        let ReleaseRecord {
+            program,
+            period_from,
+            period_to,
+            as_of: _,
+            headline,
+            counts,
+            count_labels,
+            sums,
+            key_check,
+            figures,
+            withdrawals: _,
+        } = self;
+        *program == other.program
+            && *period_from == other.period_from
+            && *period_to == other.period_to
+            && *headline == other.headline
+            && *counts == other.counts
+            && *count_labels == other.count_labels
+            && *sums == other.sums
+            && *key_check == other.key_check
+            && *figures == other.figures
+    }
+}
+
 /// What a key gives for a fixed text: stored with each release, so a `secret.key` restored
 /// from another backup (or another program's) is told from the right one. It reveals nothing
 /// of the key (a keyed hash, blake3).
@@ -710,22 +740,21 @@ impl Ledger {
     /// Records a release (once: an identical release is not added again) and saves.
     pub fn record(&mut self, mut release: ReleaseRecord) -> std::io::Result<()> {
         release.key_check = key_check(&self.secret);
-        if self.releases.contains(&release) {
-            return Ok(());
-        }
-        // The same release but for the withdrawals it knows (a re-run of the same figures
-        // after a withdrawal was recorded, or a release of an older ledger): one release, now
-        // the latest, with what this run knew.
-        let other_withdrawals = |r: &ReleaseRecord| {
-            ReleaseRecord {
-                withdrawals: None,
-                ..r.clone()
-            } == ReleaseRecord {
-                withdrawals: None,
-                ..release.clone()
+        // A release that differs from a recorded one only in its as-of date tells the audit
+        // nothing new: after a program's end every monthly run reprints its last month, and
+        // each run added a copy (about 775 kB at 300 people, every month, for ever).
+        if let Some(i) = self
+            .releases
+            .iter()
+            .position(|r| r.same_but_as_of(&release))
+        {
+            if self.releases[i].withdrawals == release.withdrawals {
+                return Ok(());
             }
-        };
-        if let Some(i) = self.releases.iter().position(other_withdrawals) {
+            // The same figures from a run that knew other consent withdrawals (one recorded
+            // since, or a release of an older ledger, which recorded none): still one release,
+            // now the latest, with what this run knew, so that a withdrawal is said once
+            // ([`Ledger::released_before_withdrawal`]).
             self.releases.remove(i);
         }
         self.releases.push(release);

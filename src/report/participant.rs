@@ -1568,6 +1568,25 @@ fn energy_section(
         );
         table.rows.push(row);
     }
+    // A column with no figure in any week is left out: someone without a food log had a
+    // "Logged intake" column of dashes in every row (tryout, two April weigh-ins, no log).
+    let keep: Vec<bool> = std::iter::once(true)
+        .chain(series.iter().map(|s| !s.is_empty()))
+        .collect();
+    if keep.iter().skip(1).any(|k| *k) {
+        let pick = |v: Vec<String>| -> Vec<String> {
+            v.into_iter()
+                .zip(&keep)
+                .filter(|(_, k)| **k)
+                .map(|(c, _)| c)
+                .collect()
+        };
+        table.header = pick(std::mem::take(&mut table.header));
+        table.rows = std::mem::take(&mut table.rows)
+            .into_iter()
+            .map(pick)
+            .collect();
+    }
     let [exp, logged, implied] = series;
     // The description names the series drawn, as the legend does (no food log: no logged
     // intake, and both said there was).
@@ -2648,6 +2667,22 @@ mod activity_unread_tests {
         );
         assert!(v.explanation.contains("so the two can differ"));
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
+        assert_eq!(v.chart.table.header.len(), 4, "{:?}", v.chart.table.header);
+        // Without a food log, no column of dashes for it.
+        let mut no_log = e.clone();
+        for r in &mut no_log.weekly_energy {
+            r.logged_intake_kcal_per_day = None;
+        }
+        let (nv, _) = energy_section(&no_log, "last 4 weeks", None, false);
+        assert_eq!(
+            nv.chart.table.header,
+            [
+                "Week of",
+                "Energy use, estimated (kcal/day)",
+                "Implied intake"
+            ]
+        );
+        assert!(nv.chart.table.rows.iter().all(|r| r.len() == 3));
         let (v, _) = energy_section(&e, "last 30 days", None, false);
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
         // The balance and the gap say what they are (sample program, September 2026, SG-001:

@@ -881,7 +881,10 @@ impl MetricModule for OutcomesModule {
         let mut output = ModuleOutput::default();
         let w = Weights::of(ctx, data);
         let bmi1 = push_weight_outcomes(&mut output, ctx, data, &w);
-        output.tables.push(milestones_table(w.w0, &w.levels));
+        let weigh_in_days: Vec<NaiveDate> = w.raw.iter().map(|r| r.0).collect();
+        output
+            .tables
+            .push(milestones_table(w.w0, &w.levels, &weigh_in_days));
         output.tables.push(trajectory_table(
             w.w0,
             &w.trend_points,
@@ -1171,15 +1174,30 @@ fn trajectory_table(
     }
 }
 
-/// Milestones: first day the trend level is at or below the threshold weight.
-fn milestones_table(w0: Option<f64>, levels: &[(NaiveDate, f64)]) -> Table {
+/// Milestones: reached on the first weigh-in day on or after the first day the trend level is
+/// at or below the threshold weight.
+///
+/// # Remarks
+/// The trend's crossing day alone read more precise than the records are: someone weighed on
+/// 2 April, 10 June and 20 September read "3 % loss · reached 19 Aug", a point on the line drawn
+/// across 102 days without a weigh-in. The weigh-in that showed the loss dates it (for a daily
+/// weigher, the same day or the next); a crossing after the last weigh-in is a projection of the
+/// trend, not a milestone reached. `weigh_in_days` is sorted.
+fn milestones_table(
+    w0: Option<f64>,
+    levels: &[(NaiveDate, f64)],
+    weigh_in_days: &[NaiveDate],
+) -> Table {
     let rows = MILESTONES_PERCENT
         .into_iter()
         .map(|t| {
             let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
             let reached = threshold
                 .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
-                .map(|(d, _)| *d);
+                .and_then(|&(crossed, _)| {
+                    let i = weigh_in_days.partition_point(|d| *d < crossed);
+                    weigh_in_days.get(i).copied()
+                });
             MilestoneRow {
                 threshold_percent: t,
                 threshold_weight_kg: threshold,
