@@ -3203,6 +3203,21 @@ fn numeric_order(
     if opts.date_format != "%Y-%m-%d" {
         return Ok(None);
     }
+    let span = opts.program_span;
+    // A row that may be dated after a withdrawal of consent (in some reading of its date) is
+    // not read, so it does not decide how the rows before it are read either: one synced
+    // weigh-in on `13/11/2026` told the order of a whole file of earlier dates that did not.
+    let may_be_after_consent = |s: &str| {
+        ctx.consent_withdrawn
+            .is_some_and(|x| match parse_when(s, opts) {
+                Some(w) => w.date > x,
+                None => numeric_parts(s).is_some_and(|p| {
+                    NumericOrder::ALL
+                        .iter()
+                        .any(|o| place(p, *o, span).is_some_and(|d| d > x))
+                }),
+            })
+    };
     let dates: Vec<(&Row, &str, NumericParts)> = table
         .rows
         .iter()
@@ -3210,12 +3225,11 @@ fn numeric_order(
             let s = table.get(r, "date")?;
             Some((r, s, numeric_parts(s)?))
         })
-        .filter(|(_, s, _)| parse_when(s, opts).is_none())
+        .filter(|(_, s, _)| parse_when(s, opts).is_none() && !may_be_after_consent(s))
         .collect();
     let Some(&(first_row, first, _)) = dates.first() else {
         return Ok(None);
     };
-    let span = opts.program_span;
     // The orders that read every such date; orders that give every one the same date (`05/05/26`
     // either way, `26-05-26` year or day first in 2026) are one reading.
     let mut fitting: Vec<NumericOrder> = Vec::new();
@@ -3239,7 +3253,11 @@ fn numeric_order(
     let dated = table
         .rows
         .iter()
-        .filter(|r| table.get(r, "date").is_some())
+        .filter(|r| {
+            table
+                .get(r, "date")
+                .is_some_and(|s| !may_be_after_consent(s))
+        })
         .count();
     let short = dates.iter().any(|(_, _, p)| p.4);
     let within = match span {
@@ -5554,6 +5572,40 @@ mod tests {
             "{}",
             d[0]
         );
+    }
+
+    /// Rows that may be dated after a withdrawal of consent are not read, so they do not tell
+    /// the order of the file's dates either: a weigh-in synced on 13 November told that every
+    /// earlier `05/01/2026` was day first. Without them nothing tells, and the file is refused
+    /// as it would be had they never been synced.
+    #[test]
+    fn rows_after_a_withdrawal_do_not_decide_the_order_of_the_dates() {
+        let d = |s: &str| NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap();
+        let opts = CsvOptions::default();
+        let text = "date,weight,unit\n05/01/2026,90,kg\n06/01/2026,89.5,kg\n13/11/2026,88,kg\n";
+        let read_with = |withdrew: Option<NaiveDate>| {
+            let ctx =
+                FileCtx::new("P1", "participants/P1/weights.csv").with_consent_withdrawn(withdrew);
+            let mut diags = Vec::new();
+            let t = read_table(text, &SPEC, &opts, &ctx, &mut diags);
+            (t, diags)
+        };
+        // Without a withdrawal, 13/11 tells day first.
+        let (t, diags) = read_with(None);
+        assert!(t.is_some() && diags.is_empty(), "{diags:?}");
+        // Withdrawn on 1 July: 13/11/2026 is after it in every reading, and the rest tell
+        // nothing, so the file is refused at its first date.
+        let (t, diags) = read_with(Some(d("2026-07-01")));
+        assert!(t.is_none());
+        assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(1)));
+        assert!(
+            diags[0].message.contains("day or its month comes first"),
+            "{}",
+            diags[0]
+        );
+        // Withdrawn after 13 November: the row is read, and tells.
+        let (t, diags) = read_with(Some(d("2026-11-30")));
+        assert!(t.is_some() && diags.is_empty(), "{diags:?}");
     }
 
     /// `05/01/26`: a two-digit year, in a program of 2026. Such dates were dropped row by row
