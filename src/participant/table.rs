@@ -572,6 +572,16 @@ fn is_placeholder(s: &str) -> bool {
             .any(|p| s.eq_ignore_ascii_case(p))
 }
 
+/// The inside of a cell a spreadsheet wrote as a text formula, `="2026-04-10"` (in a CSV file
+/// also `"=""2026-04-10"""`, the same cell once unquoted), so that the text is kept as written
+/// (a date not turned into a serial number, a leading zero kept); `None` for any other cell.
+/// Such a date was "unreadable" and its row dropped. A quote inside is written twice.
+fn spreadsheet_text(cell: &str) -> Option<String> {
+    let inside = cell.trim().strip_prefix("=\"")?.strip_suffix('"')?;
+    let unescaped = inside.replace("\"\"", "\"");
+    (unescaped.matches('"').count() * 2 == inside.matches('"').count()).then_some(unescaped)
+}
+
 /// Consecutive identical rows that make a repeated block (a file pasted twice): fewer could be
 /// the same meal or walk on the same days by chance (common practice).
 pub const REPEATED_BLOCK_ROWS: usize = 3;
@@ -1767,6 +1777,7 @@ fn read_records(
         .unwrap_or(0);
     // Rows whose unread last text value holds the delimiter, read without it.
     let mut split_unread = 0usize;
+    let mut formula_cells = false;
     loop {
         match reader.read_record(&mut rec) {
             Ok(true) => {
@@ -2044,7 +2055,13 @@ fn read_records(
         let first = table.bounds.len();
         for f in rec.iter().take(width) {
             let start = table.text.len();
-            table.text.push_str(f);
+            match spreadsheet_text(f) {
+                Some(inside) => {
+                    table.text.push_str(&inside);
+                    formula_cells = true;
+                }
+                None => table.text.push_str(f),
+            }
             table.bounds.push((start, table.text.len()));
         }
         for _ in rec.len()..width {
@@ -2061,6 +2078,9 @@ fn read_records(
         let short = (rec.len() < width).then_some(rec.len());
         table.rows.push(Row { line, first, short });
         ctx.count_row();
+    }
+    if formula_cells {
+        table.recognised("cells written as a spreadsheet's text formula (`=\"2026-04-10\"`), read as the text inside");
     }
     // A row of one field too many, the last empty, with a text value split in two before a
     // column read (`2026-03-02,walk, brisk,30,` under `Date,Activity,Minutes,Notes`) was read
