@@ -706,9 +706,14 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
             .into_iter()
             .map(|i| &o.labs[i])
             .map(|l| {
-                let value = format!("{} {}", lab_number(l.test, l.value, &l.unit), l.unit);
+                // A censored value is the bound it is, printed as such (`> 14.0 %`), never as
+                // the number alone.
+                let q = l
+                    .qualifier
+                    .map_or(String::new(), |c| format!("{} ", c.symbol()));
+                let value = format!("{q}{} {}", lab_number(l.test, l.value, &l.unit), l.unit);
                 let alt = match (l.value_alt, l.unit_alt.as_deref()) {
-                    (Some(v), Some(u)) => format!("{} {u}", lab_number(l.test, v, u)),
+                    (Some(v), Some(u)) => format!("{q}{} {u}", lab_number(l.test, v, u)),
                     _ => String::new(),
                 };
                 vec![
