@@ -1794,6 +1794,73 @@ fn a_month_run_again_with_a_changed_printed_figure_is_a_new_release() {
     );
 }
 
+/// A consent withdrawal recorded in a profile months after its day: June's and July's reports
+/// were released with the person still in the program, and no run said so (only `check` listed
+/// the rows after the withdrawal; a later month's run left them out silently). Now the first
+/// run after it is recorded names the folder, the day, the months released without it and
+/// what to do, once: its release records the withdrawals it knew, and the next run is silent.
+/// A withdrawal recorded in time (known to every release after its day) is never named.
+#[test]
+fn a_withdrawal_recorded_after_months_were_released_is_said_once() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |month: &str, as_of: &str| {
+        let o = t.run(&[
+            "run", "{dir}", "--period", month, "--as-of", as_of, "--out", month,
+        ]);
+        assert!(o.code <= 1, "{o:?}");
+        o.stderr
+    };
+    let said = |log: &str| {
+        log.lines()
+            .filter(|l| l.contains("consent withdrawn on"))
+            .map(str::to_string)
+            .collect::<Vec<_>>()
+    };
+    assert!(said(&run("2026-06", "2026-07-02")).is_empty());
+    assert!(said(&run("2026-07", "2026-08-02")).is_empty());
+    let profile = |id: &str| t.dir.join(format!("participants/{id}/profile.yaml"));
+    let add = |id: &str, line: &str| {
+        let text = std::fs::read_to_string(profile(id)).unwrap();
+        std::fs::write(profile(id), format!("{text}{line}\n")).unwrap();
+    };
+    add("SG-007", "withdrew: 2026-06-10");
+    let log = run("2026-08", "2026-09-02");
+    let lines = said(&log);
+    assert_eq!(lines.len(), 1, "{log}");
+    assert!(
+        lines[0].contains(
+            "participants/SG-007: consent withdrawn on 2026-06-10 (profile.yaml's `withdrew`), recorded after the reports of 2026-06-01 to 2026-06-30, 2026-07-01 to 2026-07-31 were released"
+        ),
+        "{}",
+        lines[0]
+    );
+    assert!(lines[0].contains("What to do: tell whoever received those reports"));
+    assert!(lines[0].contains(" WARN "), "{}", lines[0]);
+    // Said once: September's run knows that August's release knew it. A withdrawal on a day
+    // after every period released so far, recorded before the next run, is known in time and
+    // never named.
+    add("SG-003", "withdrew: 2026-09-05");
+    assert!(said(&run("2026-09", "2026-10-02")).is_empty());
+    assert!(said(&run("2026-09", "2026-10-02")).is_empty());
+    // The ledger names no one: only keyed hashes of the withdrawals each release knew.
+    let ledger = std::fs::read_to_string(t.dir.join("reports.ledger/ledger.json")).unwrap();
+    assert!(!ledger.contains("SG-007") && !ledger.contains("2026-06-10"));
+    let v: serde_json::Value = serde_json::from_str(&ledger).unwrap();
+    let known: Vec<usize> = v["releases"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["withdrawals"].as_array().unwrap().len())
+        .collect();
+    // June's release knew of none (SG-018's withdrawal on 27 July came after its period), July's
+    // of SG-018's, August's of SG-007's too, September's of SG-003's as well.
+    assert_eq!(known, [0, 1, 2, 3], "{known:?}");
+    // Made again without the data, June does not bring the warning back; nor does May, a
+    // period before the withdrawal.
+    assert!(said(&run("2026-06", "2026-10-04")).is_empty());
+    assert!(said(&run("2026-05", "2026-10-04")).is_empty());
+}
+
 /// After the program's end every monthly run (cron, no `--period`) reports its last month
 /// again with a new as-of date. The figures are the same, yet each run added a copy of the
 /// release to the ledger (about 775 kB at 300 people, every month). A changed figure is still

@@ -872,6 +872,7 @@ fn lab(k: i64, test: LabTest, value: f64, unit: &str, as_written: f64) -> LabRes
         value,
         unit_as_written: unit.into(),
         value_as_written: as_written,
+        censored: None,
     }
 }
 
@@ -900,7 +901,8 @@ fn labs_table_and_lab_flags() {
             "value_alt",
             "unit_alt",
             "category",
-            "eag_mg_dl"
+            "eag_mg_dl",
+            "qualifier",
         ]
     );
     assert_eq!(t.rows.len(), 5);
@@ -924,7 +926,7 @@ fn labs_table_and_lab_flags() {
     // Blood pressure is reported, not classified.
     assert_eq!(
         row(3)[1..],
-        ["systolic_bp", "128", "mmHg", "", "", "recorded", ""]
+        ["systolic_bp", "128", "mmHg", "", "", "recorded", "", ""]
     );
     assert_eq!(row(4)[6], "prediabetes_range");
 
