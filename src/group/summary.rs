@@ -1390,6 +1390,11 @@ pub(super) fn build(
         // difference of two such sums would (their atoms, tagged apart, never meet a mean's).
         let mut facts: Vec<audit::SumFact> = Vec::new();
         let mut person_of: HashMap<u64, u64> = HashMap::new();
+        let orders_before: HashSet<BTreeSet<u64>> = history
+            .orders
+            .iter()
+            .map(|s| s.iter().map(|&(_, a)| a).collect())
+            .collect();
         for s in history.sums.iter().chain(&history.orders) {
             for &(p, a) in s {
                 person_of.insert(a, p);
@@ -1459,9 +1464,15 @@ pub(super) fn build(
                 for &(p, a) in &atoms {
                     person_of.insert(a, p);
                 }
+                let keys: BTreeSet<u64> = atoms.iter().map(|&(_, a)| a).collect();
+                // A median over exactly the values of one printed before is that median again:
+                // it tells nothing new, and withheld it only cost the report (the sample
+                // program's September withheld every attendance median, each the same as
+                // August's, because August's sites had been withheld against July's).
+                let repeat = matches!(line, Line::Adherence(_)) && orders_before.contains(&keys);
                 facts.push(audit::SumFact {
-                    atoms: atoms.iter().map(|&(_, a)| a).collect(),
-                    removable: true,
+                    atoms: keys.into_iter().collect(),
+                    removable: !repeat,
                     priority,
                 });
                 owners.push((d as *const Draft, line, d.label.clone(), atoms));
