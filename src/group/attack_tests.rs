@@ -1904,9 +1904,12 @@ fn week_means_of_three_banded_sites_across_releases_do_not_weigh_out_who_stopped
     );
 }
 
+/// (measure, the (person, value bits) it was taken over, the printed median).
+type PrintedMedian = (&'static str, BTreeSet<(String, u64)>, f64);
+
 /// Every adherence median a release prints, as (measure, the (person, value bits) it was taken
 /// over): the attacker knows who is in each section and who has a value (worst case).
-fn printed_medians(rel: &Release) -> Vec<(&'static str, BTreeSet<(String, u64)>, f64)> {
+fn printed_medians(rel: &Release) -> Vec<PrintedMedian> {
     const MEASURES: [&str; 4] = [
         "activity_minutes_per_week",
         "weigh_ins_per_week",
