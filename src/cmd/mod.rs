@@ -24,7 +24,7 @@ pub fn dispatch(cli: Cli) -> i32 {
             out,
         } => {
             init_logging(false, LogFormat::Text);
-            let as_of = as_of.unwrap_or_else(|| today(&program));
+            let as_of = as_of.unwrap_or_else(|| today(&program, true));
             let stdout = std::io::stdout();
             let opts = check::CheckOptions {
                 json: format == CheckFormat::Json,
@@ -38,7 +38,7 @@ pub fn dispatch(cli: Cli) -> i32 {
             init_logging(args.quiet, args.log_format);
             let today = match args.as_of {
                 Some(d) => d,
-                None => today(&args.program),
+                None => today(&args.program, false),
             };
             run::run_command(&args, today)
         }
@@ -152,14 +152,22 @@ fn debug_panic_hook() {
 }
 
 /// Today for the program in folder `program`: the date in its `input.time_zone` when it sets
-/// one, else on the machine's clock ([`crate::program::Program::date_at`]); the machine's when
-/// the program cannot be loaded (the command then says why).
-fn today(program: &Path) -> chrono::NaiveDate {
+/// one, else in the machine's time zone, read without reading a file `TZ` names, else UTC
+/// ([`crate::program::Program::date_at`]); the machine's when the program cannot be loaded (the
+/// command then says why). Logged: `run` always says which zone gave the day, `check` only when
+/// the machine's zone could not be used.
+fn today(program: &Path, quiet_unless_unusual: bool) -> chrono::NaiveDate {
     let now = chrono::Utc::now();
-    crate::program::load_program(program).map_or_else(
-        |_| now.with_timezone(&chrono::Local).date_naive(),
-        |p| p.date_at(now),
-    )
+    let (date, how) = crate::program::load_program(program)
+        .map_or_else(|_| crate::program::machine_date_at(now), |p| p.date_at(now));
+    if how.unusual {
+        tracing::warn!("today is {date}, {} (no --as-of given)", how.source);
+    } else if quiet_unless_unusual {
+        tracing::debug!("today is {date}, {} (no --as-of given)", how.source);
+    } else {
+        tracing::info!("today is {date}, {} (no --as-of given)", how.source);
+    }
+    date
 }
 
 /// Logs go to standard error; the level comes from `COHORTPRESS_LOG` (e.g. `debug`, see

@@ -180,6 +180,9 @@ pub fn run_command(args: &RunArgs, today: NaiveDate) -> i32 {
                 commit_s = ms(timing.commit_s),
                 "timing in seconds per phase"
             );
+            if let Some(done) = plan.ended_summary(summary.reported) {
+                tracing::info!("{done}");
+            }
             let code = summary_code(&summary);
             // The exit code rides on the last line too, for log collectors that keep the
             // JSON lines but not the process's status, and so do the counts behind it.

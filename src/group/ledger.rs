@@ -71,6 +71,45 @@ pub struct ReleaseRecord {
     /// the same report ([`Ledger::issued`]).
     #[serde(default, skip_serializing_if = "String::is_empty")]
     pub figures: String,
+    /// The consent withdrawals the run knew of, each a keyed hash of the participant's id and
+    /// withdrawal day ([`Ledger::withdrawal_key`]): a withdrawal recorded in a profile after
+    /// releases of periods past its day is told from one known in time
+    /// ([`Ledger::released_before_withdrawal`]). Absent in older ledgers: such a release is
+    /// never named as made without a withdrawal.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub withdrawals: Option<Vec<String>>,
+}
+
+impl ReleaseRecord {
+    /// Whether `other` records the same release, whatever the as-of date of its run and the
+    /// withdrawals it knew (see [`Ledger::record`]). Every field is named, so a field added
+    /// later is compared or left out on purpose.
+    fn same_but_as_of(&self, other: &ReleaseRecord) -> bool {
+        let ReleaseRecord {
+            program,
+            period_from,
+            period_to,
+            as_of: _,
+            headline,
+            counts,
+            count_labels,
+            sums,
+            orders,
+            key_check,
+            figures,
+            withdrawals: _,
+        } = self;
+        *program == other.program
+            && *period_from == other.period_from
+            && *period_to == other.period_to
+            && *headline == other.headline
+            && *counts == other.counts
+            && *count_labels == other.count_labels
+            && *sums == other.sums
+            && *orders == other.orders
+            && *key_check == other.key_check
+            && *figures == other.figures
+    }
 }
 
 /// What a key gives for a fixed text: stored with each release, so a `secret.key` restored
@@ -664,11 +703,68 @@ impl Ledger {
         by_period.into_values().collect()
     }
 
+    /// A keyed hash (blake3, under the ledger's key) of a participant's id and the day they
+    /// withdrew consent: what a release records of the withdrawals its run knew, naming no one.
+    pub fn withdrawal_key(&self, id: &str, withdrew: &str) -> String {
+        let text = format!("cohortpress consent withdrawal\0{id}\0{withdrew}");
+        blake3::keyed_hash(&self.secret, text.as_bytes())
+            .to_hex()
+            .to_string()
+    }
+
+    /// The periods (`from`, `to`) of `program`'s releases that ended after `withdrew` and were
+    /// made without this withdrawal (its [`Ledger::withdrawal_key`] `key`) since the last
+    /// release that knew it, oldest first: the withdrawal was recorded after those reports were
+    /// made, and they treated the person as still in the program. Empty once a release knows
+    /// it (it is said once; a month made again later, before the withdrawal's day or after,
+    /// does not bring it back), and for releases of older ledgers, which did not record what
+    /// they knew. A release of a period that ended before `withdrew` does not hold it (the
+    /// person was still in the program) and is no evidence either way.
+    pub fn released_before_withdrawal(
+        &self,
+        program: &str,
+        key: &str,
+        withdrew: &str,
+    ) -> Vec<(String, String)> {
+        let ours: Vec<&ReleaseRecord> = self
+            .releases
+            .iter()
+            .filter(|r| r.program == program)
+            .collect();
+        let knew = |r: &ReleaseRecord| r.withdrawals.as_ref().map(|w| w.iter().any(|k| k == key));
+        let since = ours
+            .iter()
+            .rposition(|r| knew(r) == Some(true))
+            .map_or(0, |i| i + 1);
+        let mut periods: Vec<(String, String)> = ours[since..]
+            .iter()
+            .filter(|r| r.period_to.as_str() > withdrew && knew(r) == Some(false))
+            .map(|r| (r.period_from.clone(), r.period_to.clone()))
+            .collect();
+        periods.sort();
+        periods.dedup();
+        periods
+    }
+
     /// Records a release (once: an identical release is not added again) and saves.
     pub fn record(&mut self, mut release: ReleaseRecord) -> std::io::Result<()> {
         release.key_check = key_check(&self.secret);
-        if self.releases.contains(&release) {
-            return Ok(());
+        // A release that differs from a recorded one only in its as-of date tells the audit
+        // nothing new: after a program's end every monthly run reprints its last month, and
+        // each run added a copy (about 775 kB at 300 people, every month, for ever).
+        if let Some(i) = self
+            .releases
+            .iter()
+            .position(|r| r.same_but_as_of(&release))
+        {
+            if self.releases[i].withdrawals == release.withdrawals {
+                return Ok(());
+            }
+            // The same figures from a run that knew other consent withdrawals (one recorded
+            // since, or a release of an older ledger, which recorded none): still one release,
+            // now the latest, with what this run knew, so that a withdrawal is said once
+            // ([`Ledger::released_before_withdrawal`]).
+            self.releases.remove(i);
         }
         self.releases.push(release);
         let f = LedgerFile {
@@ -703,6 +799,7 @@ pub fn release_record(
         orders: published.orders,
         key_check: String::new(),
         figures,
+        withdrawals: None,
     }
 }
 

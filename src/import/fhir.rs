@@ -52,8 +52,9 @@ pub struct PatientData {
     pub weights: Vec<(Taken, f64, &'static str, Option<String>)>,
     /// Heights: (local day, value, `cm` | `in`).
     pub heights: Vec<(NaiveDate, f64, &'static str)>,
-    /// Lab rows: (when, test, value, unit as our labs.csv writes it).
-    pub labs: Vec<(Taken, &'static str, f64, &'static str)>,
+    /// Lab rows: (when, test, value, unit as our labs.csv writes it, the Quantity's
+    /// `comparator` when the value is a bound: `>`, `>=`, `<`, `<=`).
+    pub labs: Vec<(Taken, &'static str, f64, &'static str, Option<&'static str>)>,
 }
 
 /// When an Observation was made, as the participant's CSV files say it.
@@ -151,6 +152,23 @@ fn method(obs: &Value) -> Option<String> {
         .take(64)
         .collect();
     (!clean.is_empty()).then_some(clean)
+}
+
+/// The `comparator` of a Quantity (`>14.0 %`: the laboratory gives a bound, a value beyond
+/// the assay's range): `Ok(None)` without one, `Err` with what it holds when it is none of
+/// FHIR R4's `<`, `<=`, `>=`, `>`. Without it, a bound was written to labs.csv as the plain
+/// number, read as a measurement of exactly that value.
+fn comparator(q: &Value) -> Result<Option<&'static str>, String> {
+    match q.get("comparator") {
+        None | Some(Value::Null) => Ok(None),
+        Some(c) => match c.as_str() {
+            Some("<") => Ok(Some("<")),
+            Some("<=") => Ok(Some("<=")),
+            Some(">=") => Ok(Some(">=")),
+            Some(">") => Ok(Some(">")),
+            _ => Err(c.to_string()),
+        },
+    }
 }
 
 /// `(value, UCUM code)` of a Quantity.
@@ -304,6 +322,28 @@ impl Imported {
             return;
         };
         let q = quantity(&obs["valueQuantity"]);
+        // A bound (`comparator`) is kept with a lab value, as labs.csv writes it (`>14.0`);
+        // a weight or height that is only a bound is no measurement.
+        let bound = match comparator(&obs["valueQuantity"]) {
+            Ok(b) => b,
+            Err(found) => {
+                self.problems.push(format!(
+                    "{origin}: Observation {id} (LOINC {code}) has the comparator {}, not one of <, <=, >=, >; it is skipped",
+                    shown(&found)
+                ));
+                self.skipped += 1;
+                return;
+            }
+        };
+        if let Some(b) = bound
+            && matches!(code, BODY_WEIGHT | BODY_WEIGHT_MEASURED | BODY_HEIGHT)
+        {
+            self.problems.push(format!(
+                "{origin}: Observation {id} (LOINC {code}) gives only a bound (`{b}`), not a measurement; it is skipped"
+            ));
+            self.skipped += 1;
+            return;
+        }
         let bad_unit = |this: &mut Self, unit: &str| {
             this.problems.push(format!(
                 "{origin}: Observation {id} (LOINC {code}) has unit `{}`, which is not read; it is skipped",
@@ -350,40 +390,45 @@ impl Imported {
                 Some((v, "cm")) => {
                     self.patient(&patient)
                         .labs
-                        .push((when.clone(), "waist", v, "cm"))
+                        .push((when.clone(), "waist", v, "cm", bound))
                 }
                 Some((v, "[in_i]")) => {
                     self.patient(&patient)
                         .labs
-                        .push((when.clone(), "waist", v, "in"))
+                        .push((when.clone(), "waist", v, "in", bound))
                 }
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
             },
             HBA1C | HBA1C_IFCC => match q {
-                Some((v, "%")) => self
-                    .patient(&patient)
-                    .labs
-                    .push((when.clone(), "hba1c", v, "%")),
+                Some((v, "%")) => {
+                    self.patient(&patient)
+                        .labs
+                        .push((when.clone(), "hba1c", v, "%", bound))
+                }
                 Some((v, "mmol/mol")) => {
                     self.patient(&patient)
                         .labs
-                        .push((when.clone(), "hba1c", v, "mmol/mol"))
+                        .push((when.clone(), "hba1c", v, "mmol/mol", bound))
                 }
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
             },
             FASTING_GLUCOSE_MASS | FASTING_GLUCOSE_MOLES => match q {
-                Some((v, "mg/dL")) => {
-                    self.patient(&patient)
-                        .labs
-                        .push((when.clone(), "fasting_glucose", v, "mg/dL"))
-                }
-                Some((v, "mmol/L")) => {
-                    self.patient(&patient)
-                        .labs
-                        .push((when.clone(), "fasting_glucose", v, "mmol/L"))
-                }
+                Some((v, "mg/dL")) => self.patient(&patient).labs.push((
+                    when.clone(),
+                    "fasting_glucose",
+                    v,
+                    "mg/dL",
+                    bound,
+                )),
+                Some((v, "mmol/L")) => self.patient(&patient).labs.push((
+                    when.clone(),
+                    "fasting_glucose",
+                    v,
+                    "mmol/L",
+                    bound,
+                )),
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
             },
@@ -396,7 +441,7 @@ impl Imported {
                     };
                     self.patient(&patient)
                         .labs
-                        .push((when.clone(), test, v, "mmHg"))
+                        .push((when.clone(), test, v, "mmHg", bound))
                 }
                 Some((_, u)) => return bad_unit(self, u),
                 None => return no_quantity(self),
@@ -412,11 +457,16 @@ impl Imported {
                     } else {
                         continue;
                     };
+                    let bound = comparator(&c["valueQuantity"]).ok().flatten();
                     match quantity(&c["valueQuantity"]) {
                         Some((v, "mm[Hg]" | "mmHg")) => {
-                            self.patient(&patient)
-                                .labs
-                                .push((when.clone(), test, v, "mmHg"));
+                            self.patient(&patient).labs.push((
+                                when.clone(),
+                                test,
+                                v,
+                                "mmHg",
+                                bound,
+                            ));
                             found += 1;
                         }
                         Some((_, u)) => bad_unit(self, u),
@@ -639,8 +689,9 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
         let mut l = p.labs.clone();
         l.sort_by(|a, b| (a.0.date, a.1, &a.0).cmp(&(b.0.date, b.1, &b.0)));
         let mut t = String::from("date,test,value,unit\n");
-        for (when, test, v, u) in l {
-            writeln!(t, "{},{test},{v},{u}", when.cells().0).expect("string");
+        for (when, test, v, u, bound) in l {
+            let b = bound.unwrap_or_default();
+            writeln!(t, "{},{test},{b}{v},{u}", when.cells().0).expect("string");
         }
         files.push(("labs.csv", t));
     }
@@ -1341,6 +1392,64 @@ mod tests {
                 .unwrap_err()
                 .1
                 .contains("fhir_id")
+        );
+    }
+
+    /// A laboratory's bound (`valueQuantity.comparator`, FHIR R4 Quantity: `>14.0 %`, a value
+    /// beyond the assay's range) was written to labs.csv as the plain number, `14`, and read as
+    /// a measurement of exactly 14 %. It is written with its comparator (`>14`), as labs.csv
+    /// reads it; a weight that is only a bound, or a comparator FHIR R4 does not define, is
+    /// skipped with a problem naming the Observation.
+    #[test]
+    fn a_lab_bound_keeps_its_comparator_and_a_weight_bound_is_skipped() {
+        let obs = |id: &str, code: &str, q: Value| {
+            json!({"resourceType": "Observation", "id": id, "status": "final",
+                "code": {"coding": [{"system": LOINC, "code": code}]},
+                "subject": {"reference": "Patient/p1"}, "effectiveDateTime": "2026-04-02",
+                "valueQuantity": q})
+        };
+        let ucum = |v: f64, code: &str, cmp: Option<&str>| {
+            let mut q = json!({"value": v, "system": "http://unitsofmeasure.org", "code": code});
+            if let Some(c) = cmp {
+                q["comparator"] = json!(c);
+            }
+            q
+        };
+        let bundle = json!({"resourceType": "Bundle", "type": "collection", "entry": [
+            {"resource": {"resourceType": "Patient", "id": "p1", "gender": "male", "birthDate": "1979-01-02"}},
+            {"resource": obs("a1", HBA1C, ucum(14.0, "%", Some(">")))},
+            {"resource": obs("g1", FASTING_GLUCOSE_MOLES, ucum(2.0, "mmol/L", Some("<=")))},
+            {"resource": obs("w0", BODY_WEIGHT, ucum(91.5, "kg", None))},
+            {"resource": obs("w1", BODY_WEIGHT, ucum(150.0, "kg", Some(">")))},
+            {"resource": obs("a2", HBA1C, ucum(5.0, "%", Some("about")))},
+        ]});
+        let mut imp = Imported::default();
+        imp.add(&bundle, &BTreeMap::new(), "b.json");
+        assert_eq!(
+            (imp.observations, imp.skipped),
+            (3, 2),
+            "{:?}",
+            imp.problems
+        );
+        assert!(
+            imp.problems.iter().any(|p| p.contains(
+                "Observation w1 (LOINC 29463-7) gives only a bound (`>`), not a measurement"
+            )),
+            "{:?}",
+            imp.problems
+        );
+        assert!(
+            imp.problems.iter().any(|p| p
+                .contains("Observation a2 (LOINC 4548-4) has the comparator `\"about\"`")
+                || p.contains("Observation a2 (LOINC 4548-4) has the comparator \"about\"")),
+            "{:?}",
+            imp.problems
+        );
+        let files = participant_files("P1", &imp.patients["p1"]);
+        let labs = &files.iter().find(|f| f.0 == "labs.csv").unwrap().1;
+        assert_eq!(
+            labs,
+            "date,test,value,unit\n2026-04-02,fasting_glucose,<=2,mmol/L\n2026-04-02,hba1c,>14,%\n"
         );
     }
 }

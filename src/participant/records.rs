@@ -21,7 +21,7 @@ use cohortpress_metric_api::units::{
     CM_PER_IN, KG_PER_LB, Mass, glucose_mgdl_to_mmoll, hba1c_mmolmol_to_percent,
 };
 use cohortpress_metric_api::{
-    ActivityEntry, IntakeDay, LabResult, LabTest, SessionRecord, WeighIn,
+    ActivityEntry, Censor, IntakeDay, LabResult, LabTest, SessionRecord, WeighIn,
 };
 use std::collections::{BTreeMap, HashMap};
 use std::fmt::Debug;
@@ -1995,6 +1995,7 @@ impl SameValue for LabResult {
             && same_f64(self.value, o.value)
             && self.unit_as_written == o.unit_as_written
             && same_f64(self.value_as_written, o.value_as_written)
+            && self.censored == o.censored
     }
 }
 
@@ -2742,6 +2743,18 @@ fn lab_name(name: &str) -> Option<LabName> {
     })
 }
 
+/// Splits a censored lab value (`>14.0`, `> 14.0 %`, `>=14`, `≥ 14`, `<5.0`, `<= 5`) into its
+/// qualifier and the rest; a value without one is returned whole.
+fn split_censor(s: &str) -> (Option<Censor>, &str) {
+    let t = s.trim_start();
+    for sym in [">=", "<=", "≥", "≤", ">", "<"] {
+        if let Some(rest) = t.strip_prefix(sym) {
+            return (Censor::from_symbol(sym), rest.trim_start());
+        }
+    }
+    (None, s)
+}
+
 /// Splits `5.7 %`, `128/82 mmHg` or `6,1 mmol/L` into the number part and the unit written
 /// after it (if any).
 fn split_value_unit(s: &str) -> (&str, Option<&str>) {
@@ -2793,7 +2806,21 @@ pub fn parse_labs(
             return None;
         };
         let raw = c.required_text("value", d)?;
-        let (num_text, unit_in_value) = split_value_unit(&raw);
+        // `>14.0`, `> 14.0 %`, `>=14`, `<5.0`: a value beyond the assay's range, read as the
+        // bound it is (`censored`), not as the number.
+        let (censored, value_text) = split_censor(&raw);
+        if censored.is_some() && kind == LabName::BloodPressure {
+            d.push(
+                c.warn(
+                    "value",
+                    "a bound (`>` or `<`) is not read for a blood pressure pair; the row is dropped",
+                )
+                .expected("systolic/diastolic, e.g. `128/82`, or each on a row of its own")
+                .found(format!("`{raw}`")),
+            );
+            return None;
+        }
+        let (num_text, unit_in_value) = split_value_unit(value_text);
         let unit = c
             .text("unit")
             .or(unit_in_value)
@@ -2844,7 +2871,7 @@ pub fn parse_labs(
         };
         let parts: Vec<(LabTest, &str)> = match kind {
             // `abc` splits into no number and the "unit" `abc`: the message quotes the cell.
-            LabName::One(t) if num_text.trim().is_empty() => vec![(t, raw.as_str())],
+            LabName::One(t) if num_text.trim().is_empty() => vec![(t, value_text)],
             LabName::One(t) => vec![(t, num_text)],
             LabName::BloodPressure => match num_text.split_once('/') {
                 Some((sys, dia)) => vec![
@@ -2907,6 +2934,7 @@ pub fn parse_labs(
                 value: canonical,
                 unit_as_written: unit.clone(),
                 value_as_written: value,
+                censored,
             });
         }
         if let [sys, dia] = out.as_slice()

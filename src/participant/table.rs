@@ -572,6 +572,16 @@ fn is_placeholder(s: &str) -> bool {
             .any(|p| s.eq_ignore_ascii_case(p))
 }
 
+/// The inside of a cell a spreadsheet wrote as a text formula, `="2026-04-10"` (in a CSV file
+/// also `"=""2026-04-10"""`, the same cell once unquoted), so that the text is kept as written
+/// (a date not turned into a serial number, a leading zero kept); `None` for any other cell.
+/// Such a date was "unreadable" and its row dropped. A quote inside is written twice.
+fn spreadsheet_text(cell: &str) -> Option<String> {
+    let inside = cell.trim().strip_prefix("=\"")?.strip_suffix('"')?;
+    let unescaped = inside.replace("\"\"", "\"");
+    (unescaped.matches('"').count() * 2 == inside.matches('"').count()).then_some(unescaped)
+}
+
 /// Consecutive identical rows that make a repeated block (a file pasted twice): fewer could be
 /// the same meal or walk on the same days by chance (common practice).
 pub const REPEATED_BLOCK_ROWS: usize = 3;
@@ -1767,6 +1777,7 @@ fn read_records(
         .unwrap_or(0);
     // Rows whose unread last text value holds the delimiter, read without it.
     let mut split_unread = 0usize;
+    let mut formula_cells = false;
     loop {
         match reader.read_record(&mut rec) {
             Ok(true) => {
@@ -2044,7 +2055,13 @@ fn read_records(
         let first = table.bounds.len();
         for f in rec.iter().take(width) {
             let start = table.text.len();
-            table.text.push_str(f);
+            match spreadsheet_text(f) {
+                Some(inside) => {
+                    table.text.push_str(&inside);
+                    formula_cells = true;
+                }
+                None => table.text.push_str(f),
+            }
             table.bounds.push((start, table.text.len()));
         }
         for _ in rec.len()..width {
@@ -2061,6 +2078,9 @@ fn read_records(
         let short = (rec.len() < width).then_some(rec.len());
         table.rows.push(Row { line, first, short });
         ctx.count_row();
+    }
+    if formula_cells {
+        table.recognised("cells written as a spreadsheet's text formula (`=\"2026-04-10\"`), read as the text inside");
     }
     // A row of one field too many, the last empty, with a text value split in two before a
     // column read (`2026-03-02,walk, brisk,30,` under `Date,Activity,Minutes,Notes`) was read
@@ -3183,6 +3203,21 @@ fn numeric_order(
     if opts.date_format != "%Y-%m-%d" {
         return Ok(None);
     }
+    let span = opts.program_span;
+    // A row that may be dated after a withdrawal of consent (in some reading of its date) is
+    // not read, so it does not decide how the rows before it are read either: one synced
+    // weigh-in on `13/11/2026` told the order of a whole file of earlier dates that did not.
+    let may_be_after_consent = |s: &str| {
+        ctx.consent_withdrawn
+            .is_some_and(|x| match parse_when(s, opts) {
+                Some(w) => w.date > x,
+                None => numeric_parts(s).is_some_and(|p| {
+                    NumericOrder::ALL
+                        .iter()
+                        .any(|o| place(p, *o, span).is_some_and(|d| d > x))
+                }),
+            })
+    };
     let dates: Vec<(&Row, &str, NumericParts)> = table
         .rows
         .iter()
@@ -3190,12 +3225,11 @@ fn numeric_order(
             let s = table.get(r, "date")?;
             Some((r, s, numeric_parts(s)?))
         })
-        .filter(|(_, s, _)| parse_when(s, opts).is_none())
+        .filter(|(_, s, _)| parse_when(s, opts).is_none() && !may_be_after_consent(s))
         .collect();
     let Some(&(first_row, first, _)) = dates.first() else {
         return Ok(None);
     };
-    let span = opts.program_span;
     // The orders that read every such date; orders that give every one the same date (`05/05/26`
     // either way, `26-05-26` year or day first in 2026) are one reading.
     let mut fitting: Vec<NumericOrder> = Vec::new();
@@ -3219,7 +3253,11 @@ fn numeric_order(
     let dated = table
         .rows
         .iter()
-        .filter(|r| table.get(r, "date").is_some())
+        .filter(|r| {
+            table
+                .get(r, "date")
+                .is_some_and(|s| !may_be_after_consent(s))
+        })
         .count();
     let short = dates.iter().any(|(_, _, p)| p.4);
     let within = match span {
@@ -5534,6 +5572,40 @@ mod tests {
             "{}",
             d[0]
         );
+    }
+
+    /// Rows that may be dated after a withdrawal of consent are not read, so they do not tell
+    /// the order of the file's dates either: a weigh-in synced on 13 November told that every
+    /// earlier `05/01/2026` was day first. Without them nothing tells, and the file is refused
+    /// as it would be had they never been synced.
+    #[test]
+    fn rows_after_a_withdrawal_do_not_decide_the_order_of_the_dates() {
+        let d = |s: &str| NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap();
+        let opts = CsvOptions::default();
+        let text = "date,weight,unit\n05/01/2026,90,kg\n06/01/2026,89.5,kg\n13/11/2026,88,kg\n";
+        let read_with = |withdrew: Option<NaiveDate>| {
+            let ctx =
+                FileCtx::new("P1", "participants/P1/weights.csv").with_consent_withdrawn(withdrew);
+            let mut diags = Vec::new();
+            let t = read_table(text, &SPEC, &opts, &ctx, &mut diags);
+            (t, diags)
+        };
+        // Without a withdrawal, 13/11 tells day first.
+        let (t, diags) = read_with(None);
+        assert!(t.is_some() && diags.is_empty(), "{diags:?}");
+        // Withdrawn on 1 July: 13/11/2026 is after it in every reading, and the rest tell
+        // nothing, so the file is refused at its first date.
+        let (t, diags) = read_with(Some(d("2026-07-01")));
+        assert!(t.is_none());
+        assert_eq!((diags[0].line, diags[0].column), (Some(2), Some(1)));
+        assert!(
+            diags[0].message.contains("day or its month comes first"),
+            "{}",
+            diags[0]
+        );
+        // Withdrawn after 13 November: the row is read, and tells.
+        let (t, diags) = read_with(Some(d("2026-11-30")));
+        assert!(t.is_some() && diags.is_empty(), "{diags:?}");
     }
 
     /// `05/01/26`: a two-digit year, in a program of 2026. Such dates were dropped row by row

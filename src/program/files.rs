@@ -216,6 +216,15 @@ pub const INTAKE: FileSpec = FileSpec {
         ("fat", "fat_g"),
         ("protein", "protein_g"),
         ("free_sugars", "free_sugars_g"),
+        // German-language food diaries, as for weights (`Datum`, `Kalorien (kcal)`,
+        // `Energie (kJ)`, `Kohlenhydrate (g)`, `Fett (g)`, `Eiweiß (g)`): `Kalorien (kcal)` was
+        // not read and the file was refused for a missing `kcal`.
+        ("kalorien", "kcal"),
+        ("energie", "kcal"),
+        ("kohlenhydrate", "carbs_g"),
+        ("fett", "fat_g"),
+        ("eiweiß", "protein_g"),
+        ("eiweiss", "protein_g"),
     ],
     header_units: &[
         ("kcal", &["kcal", "cal", "kj"], None),

@@ -327,12 +327,13 @@ pub struct Program {
 }
 
 impl Program {
-    /// The date of the instant `now` where the participants are: in `input.time_zone` when
-    /// program.yaml sets it, else on the machine's clock (its `TZ`). The run's "today" (the
-    /// default `--as-of`): on a machine whose day is behind the participants' (a server in UTC
-    /// or America, a program in New Zealand), a weigh-in of the participants' today was "in the
-    /// future" and dropped, and the run ended with warnings.
-    pub fn date_at(&self, now: chrono::DateTime<chrono::Utc>) -> NaiveDate {
+    /// The date of the instant `now` where the participants are, and where it was taken from
+    /// (for the log): in `input.time_zone` when program.yaml sets it, else in the machine's time
+    /// zone ([`machine_zone`]: known by its name, never by reading a file `TZ` names), else in
+    /// UTC. The run's "today" (the default `--as-of`): on a machine whose day is behind the
+    /// participants' (a server in UTC or America, a program in New Zealand), a weigh-in of the
+    /// participants' today was "in the future" and dropped, and the run ended with warnings.
+    pub fn date_at(&self, now: chrono::DateTime<chrono::Utc>) -> (NaiveDate, Today) {
         match self
             .def
             .input
@@ -340,8 +341,208 @@ impl Program {
             .as_deref()
             .and_then(files::LocalZone::parse)
         {
-            Some(zone) => zone.local(now.fixed_offset()).date(),
-            None => now.with_timezone(&chrono::Local).date_naive(),
+            Some(zone) => (
+                zone.local(now.fixed_offset()).date(),
+                Today {
+                    source: format!("in input.time_zone {} (program.yaml)", zone.name()),
+                    unusual: false,
+                },
+            ),
+            None => machine_date_at(now),
         }
+    }
+}
+
+/// Where a command's "today" was taken from, in words for the log.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Today {
+    /// "in input.time_zone Europe/Berlin (program.yaml)", "in the machine's time zone …", "in
+    /// UTC: TZ names a file, which is never read …".
+    pub source: String,
+    /// The machine's zone could not be used (UTC instead): worth a line even where the
+    /// command's log is otherwise quiet.
+    pub unusual: bool,
+}
+
+/// The machine's time zone as this tool reads it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum MachineZone {
+    /// A zone known by its IANA name (from `TZ`, or the link `/etc/localtime`).
+    Zone(files::LocalZone),
+    /// A POSIX rule in `TZ` (`<-12>12`, `CET-1CEST,M3.5.0,M10.5.0/3`), or a regular
+    /// `/etc/localtime` of a sane size: chrono's local time reads it.
+    Local,
+    /// UTC: no zone, or one this tool does not read.
+    Utc,
+}
+
+/// The largest `/etc/localtime` handed to chrono (a zone file is a few KiB).
+const MAX_LOCALTIME_BYTES: u64 = 1 << 20;
+
+/// The machine's time zone from `TZ` and `/etc/localtime`, and where it came from (for the
+/// log), without reading any file `TZ` names. The time library reads the file `TZ` names
+/// whole: `TZ=/dev/zero` (or `/dev/urandom`, a FIFO) made every command without `--as-of` read
+/// forever. A zone name (`Europe/Berlin`, also in a path: `/usr/share/zoneinfo/Europe/Berlin`)
+/// is read from the compiled-in IANA tables (chrono-tz), a POSIX rule by chrono, and any other
+/// path or text gives UTC, which the log says.
+pub fn machine_zone(
+    tz: Option<&std::ffi::OsStr>,
+    localtime: &std::path::Path,
+) -> (MachineZone, String) {
+    let by_name = |s: &str| -> Option<files::LocalZone> {
+        let name = s
+            .rfind("zoneinfo/")
+            .map_or(s, |i| &s[i + "zoneinfo/".len()..]);
+        (!name.contains(".."))
+            .then(|| name.parse::<chrono_tz::Tz>().ok())
+            .flatten()
+            .map(files::LocalZone::Named)
+    };
+    // `TZ=localtime` is chrono's name for /etc/localtime: read as if TZ were unset.
+    match tz.filter(|v| *v != "localtime" && *v != ":localtime") {
+        Some(v) => {
+            let text = v.to_string_lossy();
+            let value = text.strip_prefix(':').unwrap_or(&text);
+            let shown: String = value
+                .chars()
+                .take(80)
+                .collect::<String>()
+                .escape_debug()
+                .to_string();
+            if value.is_empty() {
+                return (MachineZone::Utc, "in UTC (TZ is set and empty)".into());
+            }
+            if value.len() <= 256
+                && let Some(z) = by_name(value)
+            {
+                let how = if value.contains('/') && value.contains("zoneinfo/") {
+                    " (named by TZ's path; the file is not read)"
+                } else {
+                    " (TZ)"
+                };
+                return (
+                    MachineZone::Zone(z),
+                    format!("in the machine's time zone {}{how}", z.name()),
+                );
+            }
+            let posix_rule = value.len() <= 256
+                && !value.contains("..")
+                && value
+                    .chars()
+                    .next()
+                    .is_some_and(|c| c.is_ascii_alphabetic() || c == '<')
+                && value.chars().all(|c| {
+                    c.is_ascii_alphanumeric()
+                        || matches!(c, '<' | '>' | '+' | '-' | ':' | ',' | '.' | '/')
+                });
+            if posix_rule {
+                (
+                    MachineZone::Local,
+                    format!("in the machine's time zone rule TZ=\"{shown}\""),
+                )
+            } else {
+                (
+                    MachineZone::Utc,
+                    format!(
+                        "in UTC: TZ=\"{shown}\" is neither a time-zone name nor a rule, and a file it \
+                         names is never read (set input.time_zone in program.yaml, or TZ to a \
+                         name such as Europe/Berlin, or give --as-of)"
+                    ),
+                )
+            }
+        }
+        None => {
+            if let Ok(target) = std::fs::read_link(localtime)
+                && let Some(z) = by_name(&target.to_string_lossy())
+            {
+                return (
+                    MachineZone::Zone(z),
+                    format!(
+                        "in the machine's time zone {} ({})",
+                        z.name(),
+                        localtime.display()
+                    ),
+                );
+            }
+            match std::fs::metadata(localtime) {
+                Ok(m) if m.is_file() && m.len() <= MAX_LOCALTIME_BYTES => (
+                    MachineZone::Local,
+                    format!("in the machine's time zone ({})", localtime.display()),
+                ),
+                Ok(_) => (
+                    MachineZone::Utc,
+                    format!(
+                        "in UTC: {} is not a time-zone file of a sane size, and is not read",
+                        localtime.display()
+                    ),
+                ),
+                Err(_) => (
+                    MachineZone::Utc,
+                    format!("in UTC (no {})", localtime.display()),
+                ),
+            }
+        }
+    }
+}
+
+/// The date of `now` in the machine's time zone ([`machine_zone`] of this process's `TZ` and
+/// `/etc/localtime`), and where it came from.
+pub fn machine_date_at(now: chrono::DateTime<chrono::Utc>) -> (NaiveDate, Today) {
+    let (zone, source) = machine_zone(
+        std::env::var_os("TZ").as_deref(),
+        std::path::Path::new("/etc/localtime"),
+    );
+    let date = match &zone {
+        MachineZone::Zone(z) => z.local(now.fixed_offset()).date(),
+        MachineZone::Local => now.with_timezone(&chrono::Local).date_naive(),
+        MachineZone::Utc => now.date_naive(),
+    };
+    let unusual = zone == MachineZone::Utc && source.starts_with("in UTC:");
+    (date, Today { source, unusual })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::{MachineZone, machine_zone};
+    use std::ffi::OsStr;
+
+    /// Without `TZ`, the zone is the name `/etc/localtime` links to; a regular file of a sane
+    /// size is left to chrono, and anything else (a FIFO, a directory, nothing) gives UTC
+    /// without being read.
+    #[test]
+    fn the_machine_zone_without_tz_never_reads_what_is_not_a_zone_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let link = dir.path().join("localtime");
+        std::os::unix::fs::symlink("/usr/share/zoneinfo/Asia/Tokyo", &link).unwrap();
+        let (zone, says) = machine_zone(None, &link);
+        assert!(
+            matches!(zone, MachineZone::Zone(z) if z.name() == "Asia/Tokyo"),
+            "{says}"
+        );
+        let file = dir.path().join("file");
+        std::fs::write(&file, b"TZif").unwrap();
+        assert_eq!(machine_zone(None, &file).0, MachineZone::Local);
+        // `TZ=localtime` is chrono's name for /etc/localtime, which is judged as above.
+        assert_eq!(
+            machine_zone(Some(OsStr::new("localtime")), &file).0,
+            MachineZone::Local
+        );
+        let fifo = dir.path().join("fifo");
+        assert!(
+            std::process::Command::new("mkfifo")
+                .arg(&fifo)
+                .status()
+                .unwrap()
+                .success()
+        );
+        for p in [fifo, dir.path().to_path_buf(), dir.path().join("none")] {
+            let (zone, says) = machine_zone(None, &p);
+            assert_eq!(zone, MachineZone::Utc, "{}: {says}", p.display());
+        }
+        // A zone name with `..` is not looked up (chrono would open the path it makes).
+        let (zone, _) = machine_zone(Some(OsStr::new("../../../dev/zero")), &link);
+        assert_eq!(zone, MachineZone::Utc);
+        let (zone, _) = machine_zone(Some(OsStr::new("Europe/../../dev/zero")), &link);
+        assert_eq!(zone, MachineZone::Utc);
     }
 }

@@ -432,11 +432,24 @@ impl Layout {
         let val_x = MARGIN_X + key_w;
         let val_w = CONTENT_W - key_w;
         let lh = BODY * LEADING;
+        let wrapped: Vec<(Vec<String>, Vec<String>)> = kvs
+            .iter()
+            .map(|(k, v)| {
+                (
+                    wrap(k, Face::Regular, BODY, key_w - 10.0),
+                    wrap(v, Face::Regular, BODY, val_w),
+                )
+            })
+            .collect();
+        // A short block (a record of the follow-up list) is kept on one page: its last line
+        // alone on the next page belonged to the record above it.
+        let total: usize = wrapped.iter().map(|(k, v)| k.len().max(v.len())).sum();
+        if total <= KEEP_TOGETHER_LINES {
+            self.ensure(lh * total as f32);
+        }
         // A two-column table to assistive technology: each label heads its row.
         self.tags.open("Table");
-        for (k, v) in kvs {
-            let kl = wrap(k, Face::Regular, BODY, key_w - 10.0);
-            let vl = wrap(v, Face::Regular, BODY, val_w);
+        for (kl, vl) in &wrapped {
             let rows = kl.len().max(vl.len());
             // Rows are short; keep each together.
             self.ensure(lh * rows as f32);
@@ -755,6 +768,10 @@ impl Layout {
         }
     }
 }
+
+/// Lines of a key–value block up to which it is kept on one page (program choice: a record
+/// of a dozen lines; longer blocks break between their rows).
+const KEEP_TOGETHER_LINES: usize = 16;
 
 /// Horizontal padding on each side of a table cell, pt.
 const CELL_PAD_X: f32 = 4.0;

@@ -397,6 +397,28 @@ impl Converter<'_> {
         if let Some(c) = caption {
             self.paragraph(c, true);
         }
+        // A table the template marks `records` (inside an element of that class) is laid out
+        // a row at a time, each cell beside its column's name: the follow-up list's seven
+        // columns of sentences left each column a few words wide, and a row took most of a
+        // page (16 people, 11 pages; now 8).
+        let records = e
+            .ancestors()
+            .filter_map(ElementRef::wrap)
+            .any(|a| has_class(a, &["records"]));
+        if records {
+            for row in rows {
+                let kvs: Vec<(String, String)> = header
+                    .iter()
+                    .zip(row)
+                    .filter(|(_, v)| !v.trim().is_empty())
+                    .map(|(k, v)| (k.clone(), v))
+                    .collect();
+                if !kvs.is_empty() {
+                    self.blocks.push(Block::KeyValues(kvs));
+                }
+            }
+            return Ok(());
+        }
         self.blocks.push(Block::Table {
             header,
             rows,
@@ -706,5 +728,32 @@ mod tests {
             b => panic!("{b:?}"),
         }
         assert_eq!(page.blocks[1], Block::Small("Weight, falling.".into()));
+    }
+
+    /// A table inside an element of class `records` is laid out a row at a time: one
+    /// key-value block per row, each cell beside its column's heading, empty cells left out.
+    #[test]
+    fn a_records_table_becomes_one_block_per_row() {
+        let html = "<html><body><main><div class=\"table-wrap stack records\"><table>\
+                    <thead><tr><th scope=\"col\">Who</th><th scope=\"col\">Why</th></tr></thead>\
+                    <tbody><tr><td>A</td><td>first reason</td></tr><tr><td>B</td><td></td></tr></tbody>\
+                    </table></div><div class=\"table-wrap stack\"><table>\
+                    <thead><tr><th scope=\"col\">H</th></tr></thead><tbody><tr><td>x</td></tr></tbody>\
+                    </table></div></main></body></html>";
+        assert_eq!(
+            blocks(html).unwrap(),
+            vec![
+                Block::KeyValues(vec![
+                    ("Who".into(), "A".into()),
+                    ("Why".into(), "first reason".into())
+                ]),
+                Block::KeyValues(vec![("Who".into(), "B".into())]),
+                Block::Table {
+                    header: vec!["H".into()],
+                    rows: vec![vec!["x".into()]],
+                    widths: vec![],
+                },
+            ]
+        );
     }
 }

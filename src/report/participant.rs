@@ -667,9 +667,14 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
             .into_iter()
             .map(|i| &o.labs[i])
             .map(|l| {
-                let value = format!("{} {}", lab_number(l.test, l.value, &l.unit), l.unit);
+                // A censored value is the bound it is, printed as such (`> 14.0 %`), never as
+                // the number alone.
+                let q = l
+                    .qualifier
+                    .map_or(String::new(), |c| format!("{} ", c.symbol()));
+                let value = format!("{q}{} {}", lab_number(l.test, l.value, &l.unit), l.unit);
                 let alt = match (l.value_alt, l.unit_alt.as_deref()) {
-                    (Some(v), Some(u)) => format!("{} {u}", lab_number(l.test, v, u)),
+                    (Some(v), Some(u)) => format!("{q}{} {u}", lab_number(l.test, v, u)),
                     _ => String::new(),
                 };
                 vec![
@@ -1562,6 +1567,25 @@ fn energy_section(
                 .map(|v| v.map(fmt::int).unwrap_or_else(|| "–".into())),
         );
         table.rows.push(row);
+    }
+    // A column with no figure in any week is left out: someone without a food log had a
+    // "Logged intake" column of dashes in every row (tryout, two April weigh-ins, no log).
+    let keep: Vec<bool> = std::iter::once(true)
+        .chain(series.iter().map(|s| !s.is_empty()))
+        .collect();
+    if keep.iter().skip(1).any(|k| *k) {
+        let pick = |v: Vec<String>| -> Vec<String> {
+            v.into_iter()
+                .zip(&keep)
+                .filter(|(_, k)| **k)
+                .map(|(c, _)| c)
+                .collect()
+        };
+        table.rows = std::mem::take(&mut table.rows)
+            .into_iter()
+            .map(pick)
+            .collect();
+        table.header = pick(std::mem::take(&mut table.header));
     }
     let [exp, logged, implied] = series;
     // The description names the series drawn, as the legend does (no food log: no logged
@@ -2643,6 +2667,22 @@ mod activity_unread_tests {
         );
         assert!(v.explanation.contains("so the two can differ"));
         assert_eq!(v.chart.table.header[1], "Energy use, estimated (kcal/day)");
+        assert_eq!(v.chart.table.header.len(), 4, "{:?}", v.chart.table.header);
+        // Without a food log, no column of dashes for it.
+        let mut no_log = e.clone();
+        for r in &mut no_log.weekly_energy {
+            r.logged_intake_kcal_per_day = None;
+        }
+        let (nv, _) = energy_section(&no_log, "last 4 weeks", None, false);
+        assert_eq!(
+            nv.chart.table.header,
+            [
+                "Week of",
+                "Energy use, estimated (kcal/day)",
+                "Implied intake"
+            ]
+        );
+        assert!(nv.chart.table.rows.iter().all(|r| r.len() == 3));
         let (v, _) = energy_section(&e, "last 30 days", None, false);
         assert!(label(&v).contains("(last 30 days, from your weight trend)"));
         // The balance and the gap say what they are (sample program, September 2026, SG-001:

@@ -118,6 +118,9 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
         plan.period.to,
         plan.as_of
     );
+    if let Some(note) = plan.ended_note() {
+        tracing::info!("{note}");
+    }
 
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(plan.jobs)
@@ -249,6 +252,7 @@ pub fn keep_light(rec: &mut ParticipantRecord, columns: &Mutex<tidy::Columns>) {
     rec.listing = Vec::new();
     rec.reports = Vec::new();
     if let Some(t) = rec.tidy.take() {
+        rec.consent_withdrawn = t.consent_withdrawn().map(str::to_string);
         // Converted (moved) before the lock is taken, so workers do not queue behind it.
         let t = t.into_tidy();
         columns
@@ -583,18 +587,51 @@ pub fn finish(
             staging.write(&format!("group/{name}"), &bytes)?;
         }
         let figures = ledger.figures_key(&printed_figures(&g));
-        release = Some((
-            ledger,
-            group::ledger::release_record(
-                &program_id,
-                &period_from,
-                &period_to,
-                &plan.as_of.to_string(),
-                headline,
-                published,
-                figures,
-            ),
-        ));
+        // Consent withdrawn on a day before releases that did not know it (recorded in the
+        // profile months later): those months' reports were made with the person still in
+        // the program, their data after the withdrawal included. Said once: this release
+        // records the withdrawals it knows.
+        let mut withdrawals = Vec::new();
+        for r in records {
+            let Some(day) = r.consent_withdrawn.as_deref() else {
+                continue;
+            };
+            let key = ledger.withdrawal_key(&r.id, day);
+            let months = ledger.released_before_withdrawal(&program_id, &key, day);
+            if !months.is_empty() {
+                let list = months
+                    .iter()
+                    .map(|(f, t)| format!("{f} to {t}"))
+                    .collect::<Vec<_>>()
+                    .join(", ");
+                tracing::warn!(
+                    "participants/{}: consent withdrawn on {day} (profile.yaml's `withdrew`), \
+                     recorded after the reports of {list} were released: those reports were \
+                     made with this person still in the program, with their data after {day} \
+                     (their own report of each, and the group report's figures). This run \
+                     leaves that data out. What to do: tell whoever received those reports, as \
+                     your data-protection rules say, and make them again without it \
+                     (`cohortpress run PROGRAM --period YYYY-MM --out …` for each); stop \
+                     whatever still adds records to the folder and remove the rows dated after \
+                     {day}. This is said once.",
+                    r.id
+                );
+                summary.program_warnings += 1;
+            }
+            withdrawals.push(key);
+        }
+        let mut record = group::ledger::release_record(
+            &program_id,
+            &period_from,
+            &period_to,
+            &plan.as_of.to_string(),
+            headline,
+            published,
+            figures,
+        );
+        withdrawals.sort();
+        record.withdrawals = Some(withdrawals);
+        release = Some((ledger, record));
         group = Some(g);
     } else {
         tracing::info!(
@@ -801,6 +838,7 @@ fn process_participant(
         summary: None,
         tidy: None,
         followup: None,
+        consent_withdrawn: None,
     };
     // Someone enrolled after the period's end was not in the program then: no report for it,
     // and not counted in its group figures (a re-issued earlier month would otherwise count

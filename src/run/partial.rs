@@ -124,6 +124,11 @@ pub struct ParticipantRecord {
     /// the list on and they have a clinical flag).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub followup: Option<crate::report::followup::FollowupRecord>,
+    /// The day consent was withdrawn, from the tidy row before [`super::execute::keep_light`]
+    /// drops it (for the group step's check of releases made before the withdrawal was
+    /// recorded); not written (the tidy row in the record says it).
+    #[serde(skip)]
+    pub consent_withdrawn: Option<String>,
 }
 
 impl ParticipantRecord {
@@ -384,6 +389,14 @@ pub struct TidyRecord {
 }
 
 impl TidyRecord {
+    /// The day consent was withdrawn (`withdrew` without `withdrawal_reason:
+    /// stopped_program`), as written in the tidy row (`YYYY-MM-DD`).
+    pub fn consent_withdrawn(&self) -> Option<&str> {
+        self.withdrew
+            .as_deref()
+            .filter(|_| self.withdrawal_reason.as_deref() != Some("stopped_program"))
+    }
+
     /// From the tidy row (moved, not copied: the rows are the bulk of a record).
     pub fn from_tidy(t: TidyParticipant) -> Self {
         TidyRecord {

@@ -95,6 +95,45 @@ pub struct RunPlan {
 }
 
 impl RunPlan {
+    /// The log's line for a run after the program's end (`None` before it): a monthly cron
+    /// line left in place after the end reported the last period again, month after month, and
+    /// nothing in the log said that the program was over.
+    pub fn ended_note(&self) -> Option<String> {
+        let end = self.program.info.end;
+        (self.as_of > end).then(|| {
+            format!(
+                "the program ended on {end} (program.yaml's `program.end`): this run reports \
+                 {} to {} with the data as of {}; no period after the end is ever reported",
+                self.period.from, self.period.to, self.as_of
+            )
+        })
+    }
+
+    /// What a run after the program's end produced, for the log's line before its last one
+    /// (`None` before the end): `reported` participant reports, and the group report unless
+    /// the run is a shard or `--only`.
+    pub fn ended_summary(&self, reported: usize) -> Option<String> {
+        let end = self.program.info.end;
+        (self.as_of > end).then(|| {
+            let group = if self.shard.is_some() {
+                "; this shard's partial results, to be merged, no group report"
+            } else if !self.only.is_empty() {
+                "; no group report (--only)"
+            } else {
+                " and the group report"
+            };
+            format!(
+                "the program ended on {end}: this run wrote {reported} participant report{} for \
+                 {} to {}{group}, as of {}; once no more data are expected, remove the line that \
+                 starts it",
+                if reported == 1 { "" } else { "s" },
+                self.period.from,
+                self.period.to,
+                self.as_of
+            )
+        })
+    }
+
     /// Which run this is, as `manifest.json` and `metrics/datapackage.json` both say it.
     pub fn run_info(&self) -> crate::tidy::RunInfo {
         crate::tidy::RunInfo {
@@ -505,8 +544,19 @@ pub fn resolve_period(
         ));
     }
     if from > to {
+        // After the end (a monthly line's `--period` of a month after it): say that the
+        // program is over, not only that the dates lie outside it.
+        let ended = if raw.from > end && as_of > end {
+            format!(
+                ": the program ended on {end}, so nothing is reported and nothing was written; \
+                 remove the line that starts this run (without --period a run reports the \
+                 program's last month again)"
+            )
+        } else {
+            String::new()
+        };
         return Err(format!(
-            "the period {} to {} lies outside the program ({start} to {end})",
+            "the period {} to {} lies outside the program ({start} to {end}){ended}",
             raw.from, raw.to
         ));
     }

@@ -412,7 +412,7 @@ fn followup_list_has_no_axe_violations_and_no_table_scrolls_sideways() {
             found.overflow
         );
     }
-    assert!(html.contains("<div class=\"table-wrap stack\">"));
+    assert!(html.contains("<div class=\"table-wrap stack records\">"));
     assert!(html.contains("<td data-label=\"Participant\">SG-010</td><td data-label=\"Name\">"));
 }
 

@@ -48,6 +48,10 @@ const SHAPES: &[(&str, usize, bool)] = &[
     ("intake-diary-units-in-cells.csv", 2, false),
     // `Calories consumed` beside `Calories burned`: the file was refused, no `kcal` column.
     ("intake-diary-consumed-burned.csv", 2, false),
+    // `Kalorien (kcal)`: refused, no `kcal` column; `="2026-05-01"` (a spreadsheet's text
+    // formula): "unreadable date", every row dropped.
+    ("intake-spreadsheet-german-text-formulas.csv", 2, false),
+    ("weights-spreadsheet-text-formula-dates.csv", 3, false),
     ("activity-hms-durations.csv", 3, false),
     ("activity-minutes-in-cell.csv", 4, false),
     ("activity-start-times.csv", 3, false),
@@ -433,6 +437,15 @@ fn the_values_read_from_every_export_shape_are_the_ones_written() {
         "{kj:?}"
     );
     assert_eq!((kj[0].2, kj[1].2), (Some(80.0), Some(85.5)));
+    let de = intake("intake-spreadsheet-german-text-formulas.csv");
+    assert_eq!(
+        de,
+        [(d(5, 1), 1850.0, Some(80.0)), (d(5, 2), 1720.0, Some(75.0))]
+    );
+    same(
+        kg("weights-spreadsheet-text-formula-dates.csv"),
+        &[160.4 * LB, 160.0 * LB, 159.6 * LB],
+    );
 
     // Activity durations: clock times, units in the cell, start times.
     let minutes = |file: &str| -> Vec<f64> { got[file].activity.iter().map(|a| a.2).collect() };

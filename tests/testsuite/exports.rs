@@ -291,3 +291,70 @@ fn a_program_of_exports_loads_nearly_everything_and_reports_everyone() {
         "the report says what is missing"
     );
 }
+
+/// A laboratory export writes a value beyond the assay's range as a bound (`>14.0`). Such a row
+/// was dropped as "not a number", and with it the diabetes-range flag for the clinician. Now the
+/// flag is raised (every value above 14.0 % is in the diabetes range, ADA Standards of Care 2025
+/// §2: from 6.5 %), the report prints the bound as written, and the tidy labs table keeps the
+/// qualifier beside the bound.
+#[test]
+fn a_censored_lab_value_keeps_its_bound_and_its_flag() {
+    let prog = ProgramTest::sample();
+    let labs = prog.dir.join("participants/SG-002/labs.csv");
+    let mut text = fs::read_to_string(&labs).unwrap();
+    text.push_str("2026-09-28,hba1c,>14.0,%\n2026-09-28,fasting_glucose,< 5.0 mmol/L,\n");
+    fs::write(&labs, text).unwrap();
+    let out = prog.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-10-01",
+        "--only",
+        "SG-002",
+        "--out",
+        "out",
+    ]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let html = fs::read_to_string(prog.dir.join("out/participants/SG-002.html")).unwrap();
+    assert!(
+        html.contains("The most recent HbA1c (&gt; 14.0 %, 28 Sep 2026) is in the diabetes range"),
+        "no flag with the bound as written"
+    );
+    assert!(html.contains("&gt; 14.0 %</td>"), "the lab table's bound");
+    assert!(
+        html.contains("&lt; 5.0 mmol/L</td>"),
+        "the lab table's bound"
+    );
+    assert!(
+        !html.contains(">14.0 %</td>"),
+        "a bound printed as a number"
+    );
+    // tables.csv: the qualifier beside the bound, and no estimate derived from it.
+    let tables = fs::read_to_string(prog.dir.join("out/metrics/tables.csv")).unwrap();
+    let row = |col: &str| -> Vec<String> {
+        tables
+            .lines()
+            .filter(|l| l.starts_with("SG-002,outcomes,labs,") && l.contains(&format!(",{col},")))
+            .map(|l| l.rsplit(',').next().unwrap().to_string())
+            .collect()
+    };
+    let tests = row("test");
+    let qualifiers = row("qualifier");
+    let eag = row("eag_mg_dl");
+    let at = |test: &str, value: &str| {
+        tests
+            .iter()
+            .zip(row("value"))
+            .zip(&qualifiers)
+            .position(|((t, v), _)| t == test && v == value)
+            .unwrap_or_else(|| panic!("{test} {value} not in tables.csv"))
+    };
+    let a1c = at("hba1c", "14");
+    assert_eq!(qualifiers[a1c], ">");
+    assert_eq!(eag[a1c], "");
+    assert_eq!(row("category")[a1c], "diabetes_range");
+    let glucose = at("fasting_glucose", "5");
+    assert_eq!(qualifiers[glucose], "<");
+    assert_eq!(row("category")[glucose], "normal");
+    assert!(qualifiers.iter().filter(|q| q.is_empty()).count() >= 4);
+}

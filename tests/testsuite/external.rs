@@ -573,6 +573,7 @@ fn golden_participant() -> ParticipantData {
         value: 5.5,
         unit_as_written: "mg/dL".into(),
         value_as_written: 99.088,
+        censored: None,
     }];
     p
 }

@@ -400,7 +400,18 @@ fn a_release_the_ledger_cannot_record_is_not_published() {
     // The ledger cannot be saved (a folder where its temporary file goes: as a full disk or a
     // read-only state folder would, also for root).
     std::fs::create_dir_all(t.dir.join("reports.ledger/ledger.tmp/x")).unwrap();
-    let o = run("2026-12-02");
+    // Another month: a release the ledger has not recorded (the same month again, run on
+    // another day, is the same release and records nothing).
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-02",
+        "--period",
+        "2026-08",
+        "--formats",
+        "html",
+    ]);
     assert_eq!(o.code, 6, "{o:?}");
     assert!(o.stderr.contains("group-report ledger"), "{}", o.stderr);
     // Named as the user knows it: the ledger file, not the temporary file (alone, it read
@@ -507,7 +518,17 @@ fn a_ledger_beside_that_holds_the_programs_releases_is_the_one_used() {
     assert_eq!(o.code, 0, "{o:?}");
     assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
     with_out("reports-b");
-    let o = run("2026-12-02");
+    // Another month, so the ledger records a second release.
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-02",
+        "--period",
+        "2026-08",
+        "--formats",
+        "html",
+    ]);
     assert_eq!(o.code, 0, "{o:?}");
     assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
     assert!(!t.dir.join("reports-b.ledger").exists());
@@ -949,7 +970,17 @@ fn a_ledger_json_beside_that_is_a_link_or_a_fifo_is_passed_over_not_followed_or_
     )
     .unwrap();
     with_out("reports-b");
-    let o = run("2026-12-02");
+    // Another month, so the ledger records a second release.
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-02",
+        "--period",
+        "2026-08",
+        "--formats",
+        "html",
+    ]);
     assert_eq!(o.code, 0, "{o:?}");
     assert!(o.stderr.contains("reports-a.ledger"), "{}", o.stderr);
     assert!(!o.stderr.contains("linked.ledger"), "{}", o.stderr);
@@ -1641,14 +1672,19 @@ fn stray_ledgers_beside_never_outrank_the_programs_own_or_the_output_folders() {
         let v: serde_json::Value = serde_json::from_slice(&std::fs::read(path).unwrap()).unwrap();
         v["releases"].as_array().unwrap().len()
     };
-    let run = |as_of: &str, out: Option<&str>| {
-        let mut args = vec!["run", "{dir}", "--as-of", as_of, "--formats", "html"];
+    // Each run reports another month, so each records a release (the same month run again on
+    // another day is the same release and records nothing).
+    let run = |period: Option<&str>, out: Option<&str>| {
+        let mut args = vec!["run", "{dir}", "--as-of", AS_OF, "--formats", "html"];
+        if let Some(p) = period {
+            args.extend(["--period", p]);
+        }
         if let Some(o) = out {
             args.extend(["--out", o]);
         }
         t.run(&args)
     };
-    let o = run(AS_OF, None);
+    let o = run(None, None);
     assert_eq!(o.code, 0, "{o:?}");
     assert_eq!(releases("reports.ledger"), 1);
     // Two strays beside, each recording this program (copies of its ledger).
@@ -1663,9 +1699,9 @@ fn stray_ledgers_beside_never_outrank_the_programs_own_or_the_output_folders() {
         }
     }
     // The program's own wins, whatever --out says.
-    let o = run("2026-12-02", None);
+    let o = run(Some("2026-08"), None);
     assert_eq!(o.code, 0, "{o:?}");
-    let o = run("2026-12-03", Some("{dir}/preview"));
+    let o = run(Some("2026-07"), Some("{dir}/preview"));
     assert_eq!(o.code, 0, "{o:?}");
     assert!(
         !o.stderr.contains(".ledger"),
@@ -1683,12 +1719,12 @@ fn stray_ledgers_beside_never_outrank_the_programs_own_or_the_output_folders() {
     // Without the program's own: the output folder's own, not stopped by `old.ledger` beside it.
     let kept = t.dir.parent().unwrap().join("kept.ledger");
     std::fs::rename(t.dir.join("reports.ledger"), &kept).unwrap();
-    let o = run("2026-12-04", Some("{dir}/preview"));
+    let o = run(Some("2026-06"), Some("{dir}/preview"));
     assert_eq!(o.code, 0, "{o:?}");
     assert_eq!((releases("preview.ledger"), releases("old.ledger")), (2, 1));
     // Without either: the one beside, said in the log.
     std::fs::remove_dir_all(t.dir.join("preview.ledger")).unwrap();
-    let o = run("2026-12-05", Some("{dir}/preview"));
+    let o = run(Some("2026-05"), Some("{dir}/preview"));
     assert_eq!(o.code, 0, "{o:?}");
     assert_eq!(releases("old.ledger"), 2);
     assert!(
@@ -1814,4 +1850,132 @@ fn adherence_medians_are_audited_across_monthly_releases() {
     let program = attendance(august, "Whole program");
     assert!(program.get("value").is_some(), "{program}");
     assert_eq!(attendance(september, "Whole program"), program);
+}
+
+/// A consent withdrawal recorded in a profile months after its day: June's and July's reports
+/// were released with the person still in the program, and no run said so (only `check` listed
+/// the rows after the withdrawal; a later month's run left them out silently). Now the first
+/// run after it is recorded names the folder, the day, the months released without it and
+/// what to do, once: its release records the withdrawals it knew, and the next run is silent.
+/// A withdrawal recorded in time (known to every release after its day) is never named.
+#[test]
+fn a_withdrawal_recorded_after_months_were_released_is_said_once() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |month: &str, as_of: &str| {
+        let o = t.run(&[
+            "run", "{dir}", "--period", month, "--as-of", as_of, "--out", month,
+        ]);
+        assert!(o.code <= 1, "{o:?}");
+        o.stderr
+    };
+    let said = |log: &str| {
+        log.lines()
+            .filter(|l| l.contains("consent withdrawn on"))
+            .map(str::to_string)
+            .collect::<Vec<_>>()
+    };
+    assert!(said(&run("2026-06", "2026-07-02")).is_empty());
+    assert!(said(&run("2026-07", "2026-08-02")).is_empty());
+    let profile = |id: &str| t.dir.join(format!("participants/{id}/profile.yaml"));
+    let add = |id: &str, line: &str| {
+        let text = std::fs::read_to_string(profile(id)).unwrap();
+        std::fs::write(profile(id), format!("{text}{line}\n")).unwrap();
+    };
+    add("SG-007", "withdrew: 2026-06-10");
+    let log = run("2026-08", "2026-09-02");
+    let lines = said(&log);
+    assert_eq!(lines.len(), 1, "{log}");
+    assert!(
+        lines[0].contains(
+            "participants/SG-007: consent withdrawn on 2026-06-10 (profile.yaml's `withdrew`), recorded after the reports of 2026-06-01 to 2026-06-30, 2026-07-01 to 2026-07-31 were released"
+        ),
+        "{}",
+        lines[0]
+    );
+    assert!(lines[0].contains("What to do: tell whoever received those reports"));
+    assert!(lines[0].contains(" WARN "), "{}", lines[0]);
+    // Said once: September's run knows that August's release knew it. A withdrawal on a day
+    // after every period released so far, recorded before the next run, is known in time and
+    // never named.
+    add("SG-003", "withdrew: 2026-09-05");
+    assert!(said(&run("2026-09", "2026-10-02")).is_empty());
+    assert!(said(&run("2026-09", "2026-10-02")).is_empty());
+    // The ledger names no one: only keyed hashes of the withdrawals each release knew.
+    let ledger = std::fs::read_to_string(t.dir.join("reports.ledger/ledger.json")).unwrap();
+    assert!(!ledger.contains("SG-007") && !ledger.contains("2026-06-10"));
+    let v: serde_json::Value = serde_json::from_str(&ledger).unwrap();
+    let known: Vec<usize> = v["releases"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["withdrawals"].as_array().unwrap().len())
+        .collect();
+    // June's release knew of none (SG-018's withdrawal on 27 July came after its period), July's
+    // of SG-018's, August's of SG-007's too, September's of SG-003's as well.
+    assert_eq!(known, [0, 1, 2, 3], "{known:?}");
+    // Made again without the data, June does not bring the warning back; nor does May, a
+    // period before the withdrawal.
+    assert!(said(&run("2026-06", "2026-10-04")).is_empty());
+    assert!(said(&run("2026-05", "2026-10-04")).is_empty());
+}
+
+/// After the program's end every monthly run (cron, no `--period`) reports its last month
+/// again with a new as-of date. The figures are the same, yet each run added a copy of the
+/// release to the ledger (about 775 kB at 300 people, every month). A changed figure is still
+/// a new release.
+#[test]
+fn the_same_month_run_on_another_day_records_no_second_release() {
+    let t = ProgramTest::demo(80);
+    let run = |as_of: &str| {
+        let o = t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
+        assert!(o.code <= 1, "{o:?}");
+    };
+    let releases = || {
+        let ledger: serde_json::Value = serde_json::from_slice(
+            &std::fs::read(t.dir.join("reports.ledger/ledger.json")).unwrap(),
+        )
+        .unwrap();
+        ledger["releases"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| {
+                let text = |k: &str| r[k].as_str().unwrap().to_string();
+                (
+                    text("period_from"),
+                    text("as_of"),
+                    !r["counts"].as_array().unwrap().is_empty(),
+                )
+            })
+            .collect::<Vec<_>>()
+    };
+    for as_of in ["2026-11-02", "2026-12-02", "2027-01-02"] {
+        run(as_of);
+    }
+    assert_eq!(
+        releases(),
+        vec![("2026-09-01".to_string(), "2026-11-02".to_string(), true)]
+    );
+    // 40 people's September activity minutes tripled change a printed median: a new release.
+    for i in 1..=40 {
+        let p = t.dir.join(format!("participants/SG-{i:03}/activity.csv"));
+        let Ok(text) = std::fs::read_to_string(&p) else {
+            continue;
+        };
+        let fixed: Vec<String> = text
+            .lines()
+            .map(|l| {
+                let mut f: Vec<String> = l.split(',').map(str::to_string).collect();
+                if f[0].starts_with("2026-09")
+                    && let Ok(m) = f[2].parse::<f64>()
+                {
+                    f[2] = format!("{}", m * 3.0);
+                }
+                f.join(",")
+            })
+            .collect();
+        std::fs::write(&p, fixed.join("\n") + "\n").unwrap();
+    }
+    run("2027-02-02");
+    assert_eq!(releases().len(), 2, "{:?}", releases());
 }

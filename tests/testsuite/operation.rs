@@ -1608,3 +1608,65 @@ fn a_run_before_the_program_starts_offers_no_period_that_ends_before_it_begins()
     assert!(!r.stderr.contains("--to 2026-03-20"), "{}", r.stderr);
     assert!(!t.dir.join("reports").exists());
 }
+
+/// A monthly cron line left in place after the program's end: the run without `--period`
+/// reported September again each month, and no line of its log said that the program was
+/// over; the line with `--period` of a month after the end said only that the period "lies
+/// outside the program". Now the log says the program ended on 2026-09-30, what the run
+/// reports, and what it wrote (or that it wrote nothing) and what to do.
+#[test]
+fn a_run_after_the_program_ended_says_so_in_its_log() {
+    let t = ProgramTest::fixture("report-small");
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-02",
+        "--log-format",
+        "json",
+    ]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    let messages: Vec<String> = r
+        .stderr
+        .lines()
+        .map(|l| {
+            let v: serde_json::Value = serde_json::from_str(l).unwrap();
+            v["fields"]["message"].as_str().unwrap_or("").to_string()
+        })
+        .collect();
+    assert!(
+        messages.iter().any(|m| m
+            == "the program ended on 2026-09-30 (program.yaml's `program.end`): this run reports 2026-09-01 to 2026-09-30 with the data as of 2026-12-02; no period after the end is ever reported"),
+        "{messages:#?}"
+    );
+    // The line before the last says what the run wrote.
+    assert_eq!(
+        messages[messages.len() - 2],
+        "the program ended on 2026-09-30: this run wrote 4 participant reports for 2026-09-01 to 2026-09-30 and the group report, as of 2026-12-02; once no more data are expected, remove the line that starts it"
+    );
+    assert!(messages.last().unwrap().starts_with("done in "));
+    // Before the end, neither line.
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-09-15"]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    assert!(!r.stderr.contains("the program ended"), "{}", r.stderr);
+    // A month after the end, named: nothing written, and said so.
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-12-02",
+        "--period",
+        "2026-11",
+        "--out",
+        "nov",
+    ]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr.contains(
+            "the period 2026-11-01 to 2026-11-30 lies outside the program (2026-04-01 to 2026-09-30): the program ended on 2026-09-30, so nothing is reported and nothing was written"
+        ),
+        "{}",
+        r.stderr
+    );
+    assert!(!t.dir.join("nov").exists());
+}

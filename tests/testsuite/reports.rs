@@ -1248,7 +1248,9 @@ const TABLE_PARTIAL_BEFORE_STACKING: &str = r#"<div class="table-wrap">
 #[test]
 fn templates_written_before_stacked_tables_still_render_as_tables() {
     let builtin = |name: &str| BUILTIN.iter().find(|(n, _)| *n == name).unwrap().1;
-    let old_followup = builtin("followup.html.hbs").replace(" stack=true", "");
+    let old_followup = builtin("followup.html.hbs")
+        .replace(" stack=true", "")
+        .replace(" records=true", "");
     let old_group = builtin("group.html.hbs").replace(" stack=true", "");
     assert_ne!(old_followup, builtin("followup.html.hbs"));
     assert_ne!(old_group, builtin("group.html.hbs"));

@@ -994,3 +994,82 @@ fn rows_synced_after_withdrawn_consent_warn_in_the_month_of_leaving_only() {
         check.stdout
     );
 }
+
+/// The time library reads the file `TZ` names, whole: `TZ=/dev/zero cohortpress run PROGRAM`
+/// (no `--as-of`) read forever, as did `/dev/urandom` or a FIFO. No file `TZ` names is read
+/// now: a zone name is read as a name (also inside a zoneinfo path), a POSIX rule as a rule,
+/// anything else gives UTC, and the log says which zone gave "today". A run killed after 120 s
+/// (runs here take about a second) fails the test rather than hanging it.
+#[test]
+fn today_never_reads_a_file_tz_names() {
+    let t = with_folders(&["clean-a"]);
+    let scratch = t.dir.parent().unwrap();
+    let fifo = scratch.join("tz-fifo");
+    assert!(
+        Command::new("mkfifo")
+            .arg(&fifo)
+            .status()
+            .unwrap()
+            .success(),
+        "mkfifo"
+    );
+    // 4 GiB, sparse: a zone file nobody should read.
+    let huge = scratch.join("tz-huge");
+    std::fs::File::create(&huge)
+        .unwrap()
+        .set_len(4 << 30)
+        .unwrap();
+    let cases: Vec<(String, &str)> = vec![
+        ("/dev/zero".into(), "in UTC: TZ=\"/dev/zero\""),
+        ("/dev/urandom".into(), "in UTC: TZ=\"/dev/urandom\""),
+        (fifo.to_string_lossy().into_owned(), "in UTC: TZ="),
+        (huge.to_string_lossy().into_owned(), "in UTC: TZ="),
+        (scratch.to_string_lossy().into_owned(), "in UTC: TZ="),
+        (":/dev/zero".into(), "in UTC: TZ=\"/dev/zero\""),
+        (
+            "Pacific/Kiritimati".into(),
+            "in the machine's time zone Pacific/Kiritimati (TZ)",
+        ),
+        (
+            "/usr/share/zoneinfo/Pacific/Kiritimati".into(),
+            "in the machine's time zone Pacific/Kiritimati (named by TZ's path",
+        ),
+        (
+            "<-12>12".into(),
+            "in the machine's time zone rule TZ=\"<-12>12\"",
+        ),
+    ];
+    for (tz, says) in cases {
+        let log = scratch.join("tz-log");
+        let mut child = Command::new(BIN)
+            .args(["run", &t.dir.to_string_lossy(), "--out", "out"])
+            .current_dir(&t.dir)
+            .env_clear()
+            .env("PATH", std::env::var("PATH").unwrap_or_default())
+            .env("TZ", &tz)
+            .stdin(std::process::Stdio::null())
+            .stdout(std::process::Stdio::null())
+            .stderr(std::fs::File::create(&log).unwrap())
+            .spawn()
+            .unwrap();
+        let deadline = std::time::Instant::now() + std::time::Duration::from_secs(120);
+        let status = loop {
+            if let Some(s) = child.try_wait().unwrap() {
+                break s;
+            }
+            if std::time::Instant::now() > deadline {
+                child.kill().unwrap();
+                child.wait().unwrap();
+                panic!("TZ={tz}: the run was still going after 120 s");
+            }
+            std::thread::sleep(std::time::Duration::from_millis(50));
+        };
+        let stderr = std::fs::read_to_string(&log).unwrap();
+        assert!(status.code().is_some(), "TZ={tz}: {stderr}");
+        let line = stderr
+            .lines()
+            .find(|l| l.contains("today is "))
+            .unwrap_or_else(|| panic!("TZ={tz}: no line on today: {stderr}"));
+        assert!(line.contains(says), "TZ={tz}: {line}");
+    }
+}

@@ -236,6 +236,52 @@ pub struct LabResult {
     pub unit_as_written: String,
     /// The value as written in the file.
     pub value_as_written: f64,
+    /// Set when the laboratory reported only a bound (`>14.0`, `<5.0`: a value beyond the
+    /// assay's range): `value` and `value_as_written` are then that bound, not a measurement,
+    /// and must not be used where an exact number is needed. Absent (not `null`) in the external
+    /// protocol's JSON when the value is exact.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub censored: Option<Censor>,
+}
+
+/// Which side of its bound a censored lab value lies on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum Censor {
+    /// `>`: above the bound.
+    #[serde(rename = ">")]
+    Above,
+    /// `>=` (or `≥`): at or above the bound.
+    #[serde(rename = ">=")]
+    AtLeast,
+    /// `<`: below the bound.
+    #[serde(rename = "<")]
+    Below,
+    /// `<=` (or `≤`): at or below the bound.
+    #[serde(rename = "<=")]
+    AtMost,
+}
+
+impl Censor {
+    /// The qualifier as printed: `>`, `>=`, `<` or `<=`.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            Censor::Above => ">",
+            Censor::AtLeast => ">=",
+            Censor::Below => "<",
+            Censor::AtMost => "<=",
+        }
+    }
+
+    /// Reads a qualifier as [`Censor::symbol`] prints it (also `≥` and `≤`).
+    pub fn from_symbol(s: &str) -> Option<Censor> {
+        Some(match s {
+            ">" => Censor::Above,
+            ">=" | "≥" => Censor::AtLeast,
+            "<" => Censor::Below,
+            "<=" | "≤" => Censor::AtMost,
+            _ => return None,
+        })
+    }
 }
 
 /// One participant's checked data.

@@ -83,6 +83,7 @@ pub fn participant() -> ParticipantData {
             value: 6.2,
             unit_as_written: "mmol/L".into(),
             value_as_written: 6.2,
+            censored: None,
         },
         LabResult {
             date: day(70),
@@ -90,6 +91,7 @@ pub fn participant() -> ParticipantData {
             value: 5.9,
             unit_as_written: "%".into(),
             value_as_written: 5.9,
+            censored: None,
         },
     ];
     ParticipantData {

@@ -116,6 +116,25 @@ impl Code for crate::LabTest {
     }
 }
 
+impl Code for crate::Censor {
+    fn all() -> &'static [Self] {
+        use crate::Censor::*;
+        &[Above, AtLeast, Below, AtMost]
+    }
+    fn code(self) -> &'static str {
+        self.symbol()
+    }
+    fn label(self) -> &'static str {
+        use crate::Censor::*;
+        match self {
+            Above => "above",
+            AtLeast => "at or above",
+            Below => "below",
+            AtMost => "at or below",
+        }
+    }
+}
+
 /// Declares an enum of codes with its wire codes and labels, implementing [`Code`],
 /// [`std::str::FromStr`] and [`std::fmt::Display`] (which prints the code).
 ///

@@ -1312,49 +1312,56 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     let Some((crosses, rest)) = fc.underweight else {
         return;
     };
+    // A notice is not for a clinician's list, so its words do not ask for one (they did, and
+    // the report printed the request among the plain notices, not under "For review with a
+    // licensed clinician"): for someone heavier now, a usual diet held for good ends below BMI
+    // 18.5, and the notice says that intake is eased as weight nears its goal.
+    const EASED: &str = "Losing that far is not a goal: intake is usually raised towards \
+                         maintenance as weight nears its target.";
     if crosses.is_none()
         && let Some(w) = rest
         && w < fc.severe_kg
     {
+        let (severity, close) = if fc.healthy_now {
+            (
+                FlagSeverity::Clinical,
+                "Losing into that range is not a goal; please review this with a licensed \
+                 clinician.",
+            )
+        } else {
+            (FlagSeverity::Notice, EASED)
+        };
         out.push_flag(
             EnergyFlag::ForecastUnderweight.as_str(),
-            if fc.healthy_now {
-                FlagSeverity::Clinical
-            } else {
-                FlagSeverity::Notice
-            },
-            "If eating goes on as over the last weeks, the model expects weight to keep \
-             falling, past the underweight range (WHO: a BMI below 18.5) into severe thinness \
-             (a BMI below 16), where this model no longer applies. Losing into that range is \
-             not a goal; please review this with a licensed clinician."
-                .to_string(),
+            severity,
+            format!(
+                "If eating goes on as over the last weeks, the model expects weight to keep \
+                 falling, past the underweight range (WHO: a BMI below 18.5) into severe \
+                 thinness (a BMI below 16), where this model no longer applies. {close}"
+            ),
         );
         return;
     }
-    let rest_words = |w: f64| format!("to settle at about {w:.0} kg");
-    let (severity, what) = match (crosses, rest) {
-        (Some(d), _) => (
-            FlagSeverity::Clinical,
-            format!(
-                "to fall below a BMI of 18.5 around {}",
-                d.format("%-d %B %Y")
-            ),
+    let message = match (crosses, rest) {
+        (Some(d), _) => format!(
+            "If eating goes on as over the last weeks, the model expects weight to fall below a \
+             BMI of 18.5 around {}, the underweight range (WHO). Losing more is not a goal at \
+             that weight; please review this with a licensed clinician.",
+            d.format("%-d %B %Y")
         ),
-        (None, Some(w)) => (
-            FlagSeverity::Notice,
-            format!("{}, a BMI below 18.5", rest_words(w)),
+        (None, Some(w)) => format!(
+            "If eating goes on as over the last weeks for good, the model expects weight to \
+             settle in the end at about {w:.0} kg, a BMI below 18.5, the underweight range \
+             (WHO). {EASED}"
         ),
         (None, None) => return,
     };
-    out.push_flag(
-        EnergyFlag::ForecastUnderweight.as_str(),
-        severity,
-        format!(
-            "If eating goes on as over the last weeks, the model expects weight {what}, the \
-             underweight range (WHO). Losing more is not a goal at that weight; please review \
-             this with a licensed clinician."
-        ),
-    );
+    let severity = if crosses.is_some() {
+        FlagSeverity::Clinical
+    } else {
+        FlagSeverity::Notice
+    };
+    out.push_flag(EnergyFlag::ForecastUnderweight.as_str(), severity, message);
 }
 
 /// The forecast and body-composition outputs.

@@ -117,8 +117,8 @@ use cohortpress_metric_api::units::{
     CM_PER_IN, GLUCOSE_MGDL_PER_MMOLL, Mass, hba1c_percent_to_mmolmol,
 };
 use cohortpress_metric_api::{
-    FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError, ModuleOutput,
-    ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
+    Censor, FlagSeverity, LabResult, LabTest, MetricModule, ModuleContext, ModuleError,
+    ModuleOutput, ModuleSpec, OutputSpec, ParticipantData, SettingKind, SettingSpec, Sex, Table,
 };
 use std::collections::BTreeMap;
 
@@ -473,12 +473,32 @@ fn test_words(t: LabTest) -> &'static str {
 /// Category code of one lab result.
 /// A waist without a recorded sex has no class: the cut-offs are sex-specific, and either pair
 /// would mislabel half of the people.
+///
+/// A censored value (`>14.0`: only a bound is known) has the category every value beyond its
+/// bound has, when they all have the same: HbA1c `>14.0 %` is in the diabetes range whatever
+/// the value, `<5.0 %` in the normal range; `>6.0 %` may be either side of 6.5 % and is only
+/// `recorded` (no category, no flag).
 fn lab_category(lab: &LabResult, sex: Option<Sex>) -> LabCategory {
-    match lab.test {
-        LabTest::FastingGlucose => fasting_glucose_class(lab.value),
-        LabTest::Hba1c => hba1c_class(lab.value),
-        LabTest::Waist => sex.map_or(LabCategory::Recorded, |sex| waist_class(lab.value, sex)),
+    let class = |v: f64| match lab.test {
+        LabTest::FastingGlucose => fasting_glucose_class(v),
+        LabTest::Hba1c => hba1c_class(v),
+        LabTest::Waist => sex.map_or(LabCategory::Recorded, |sex| waist_class(v, sex)),
         LabTest::SystolicBp | LabTest::DiastolicBp => LabCategory::Recorded,
+    };
+    // The nearest and the farthest values the bound allows (a strict bound excludes itself:
+    // `>102` cm is above the 102 cm cut, `<5.7` % below 5.7).
+    let (near, far) = match lab.censored {
+        None => return class(lab.value),
+        Some(Censor::Above) => (lab.value + 2.0 * CUT_EPS, f64::MAX),
+        Some(Censor::AtLeast) => (lab.value, f64::MAX),
+        Some(Censor::Below) => (lab.value - 2.0 * CUT_EPS, 0.0),
+        Some(Censor::AtMost) => (lab.value, 0.0),
+    };
+    let c = class(near);
+    if c == class(far) {
+        c
+    } else {
+        LabCategory::Recorded
     }
 }
 
@@ -764,7 +784,11 @@ impl MetricModule for OutcomesModule {
                     names::LABS,
                     "table",
                     "",
-                    "lab values in both units with categories",
+                    "lab values in both units with categories; qualifier (`>`, `>=`, `<`, \
+                     `<=`) is set when the laboratory reported only a bound (a censored value \
+                     such as `>14.0`): value and value_alt are then that bound, not a \
+                     measurement, eag_mg_dl is empty, and category is the one every value \
+                     beyond the bound has, or `recorded` when the bound leaves it open",
                 ),
                 OutputSpec::new(
                     names::TRAJECTORY,
@@ -857,7 +881,10 @@ impl MetricModule for OutcomesModule {
         let mut output = ModuleOutput::default();
         let w = Weights::of(ctx, data);
         let bmi1 = push_weight_outcomes(&mut output, ctx, data, &w);
-        output.tables.push(milestones_table(w.w0, &w.levels));
+        let weigh_in_days: Vec<NaiveDate> = w.raw.iter().map(|r| r.0).collect();
+        output
+            .tables
+            .push(milestones_table(w.w0, &w.levels, &weigh_in_days));
         output.tables.push(trajectory_table(
             w.w0,
             &w.trend_points,
@@ -1147,15 +1174,30 @@ fn trajectory_table(
     }
 }
 
-/// Milestones: first day the trend level is at or below the threshold weight.
-fn milestones_table(w0: Option<f64>, levels: &[(NaiveDate, f64)]) -> Table {
+/// Milestones: reached on the first weigh-in day on or after the first day the trend level is
+/// at or below the threshold weight.
+///
+/// # Remarks
+/// The trend's crossing day alone read more precise than the records are: someone weighed on
+/// 2 April, 10 June and 20 September read "3 % loss · reached 19 Aug", a point on the line drawn
+/// across 102 days without a weigh-in. The weigh-in that showed the loss dates it (for a daily
+/// weigher, the same day or the next); a crossing after the last weigh-in is a projection of the
+/// trend, not a milestone reached. `weigh_in_days` is sorted.
+fn milestones_table(
+    w0: Option<f64>,
+    levels: &[(NaiveDate, f64)],
+    weigh_in_days: &[NaiveDate],
+) -> Table {
     let rows = MILESTONES_PERCENT
         .into_iter()
         .map(|t| {
             let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
             let reached = threshold
                 .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
-                .map(|(d, _)| *d);
+                .and_then(|&(crossed, _)| {
+                    let i = weigh_in_days.partition_point(|d| *d < crossed);
+                    weigh_in_days.get(i).copied()
+                });
             MilestoneRow {
                 threshold_percent: t,
                 threshold_weight_kg: threshold,
@@ -1191,7 +1233,10 @@ fn labs_table(labs: &[&LabResult], sex: Option<Sex>) -> Table {
                     value_alt: alt.map(|a| a.0),
                     unit_alt: alt.map(|a| a.1.into()),
                     category: lab_category(l, sex),
-                    eag_mg_dl: (l.test == LabTest::Hba1c).then(|| eag_mg_dl(l.value)),
+                    // An estimate from a bound would read as a measurement: left out.
+                    eag_mg_dl: (l.test == LabTest::Hba1c && l.censored.is_none())
+                        .then(|| eag_mg_dl(l.value)),
+                    qualifier: l.censored,
                 }
                 .write()
             })
@@ -1692,10 +1737,14 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Se
             }
             _ => continue,
         };
+        // A censored value is printed as the bound it is (`> 14.0 %`), never as the number.
+        let q = l
+            .censored
+            .map_or(String::new(), |c| format!("{} ", c.symbol()));
         let shown = match l.test {
-            LabTest::Hba1c => format!("{:.1} %", lab_shown(l.test, l.value, "%", 1)),
+            LabTest::Hba1c => format!("{q}{:.1} %", lab_shown(l.test, l.value, "%", 1)),
             _ => format!(
-                "{:.1} mmol/L ({:.0} mg/dL)",
+                "{q}{:.1} mmol/L ({q}{:.0} mg/dL)",
                 lab_shown(l.test, l.value, "mmol/L", 1),
                 lab_shown(l.test, l.value * GLUCOSE_MGDL_PER_MMOLL, "mg/dL", 0)
             ),
@@ -1775,6 +1824,7 @@ mod tests {
             value,
             unit_as_written: "cm".into(),
             value_as_written: value,
+            censored: None,
         };
         let waist = lab(LabTest::Waist, 85.0);
         assert_eq!(
@@ -1791,6 +1841,58 @@ mod tests {
             lab_category(&a1c, None),
             lab_category(&a1c, Some(Sex::Male))
         );
+    }
+
+    /// A censored lab value has the class every value beyond its bound has, or none: HbA1c
+    /// `>14.0 %` is in the diabetes range (ADA Standards of Care 2025 §2: from 6.5 %), `<5.0 %`
+    /// and `<5.7 %` normal, `>=6.5 %` diabetes, `>6.0 %` open (5.7–6.5 or above); waist `>102`
+    /// cm for a man is above the 102 cm cut (WHO 2011, from memory), `>=102` is not certainly.
+    #[test]
+    fn a_censored_lab_value_is_classed_only_when_its_bound_decides() {
+        let lab = |test: LabTest, value: f64, c: Censor| LabResult {
+            date: d("2027-03-01"),
+            test,
+            value,
+            unit_as_written: "%".into(),
+            value_as_written: value,
+            censored: Some(c),
+        };
+        use Censor::*;
+        use LabCategory::*;
+        for (test, v, c, want) in [
+            (LabTest::Hba1c, 14.0, Above, DiabetesRange),
+            (LabTest::Hba1c, 6.5, AtLeast, DiabetesRange),
+            (LabTest::Hba1c, 6.5, Above, DiabetesRange),
+            (LabTest::Hba1c, 6.0, Above, Recorded),
+            (LabTest::Hba1c, 5.0, Below, Normal),
+            (LabTest::Hba1c, 5.7, Below, Normal),
+            (LabTest::Hba1c, 5.7, AtMost, Recorded),
+            (LabTest::Hba1c, 6.5, Below, Recorded),
+            (LabTest::Waist, 102.0, Above, SubstantiallyIncreasedRisk),
+            (LabTest::Waist, 102.0, AtLeast, Recorded),
+        ] {
+            assert_eq!(
+                lab_category(&lab(test, v, c), Some(Sex::Male)),
+                want,
+                "{test:?} {} {v}",
+                c.symbol()
+            );
+        }
+        // The flag keeps the bound as written: "> 14.0 %", never "14.0 %".
+        let high = lab(LabTest::Hba1c, 14.0, Above);
+        let mut out = ModuleOutput::default();
+        push_lab_flags(&mut out, &[&high], None);
+        assert_eq!(out.flags.len(), 1);
+        assert_eq!(out.flags[0].code, "lab_diabetes_range");
+        assert!(
+            out.flags[0].message.contains("(> 14.0 %, 2027-03-01)"),
+            "{}",
+            out.flags[0].message
+        );
+        let low = lab(LabTest::Hba1c, 6.0, Above);
+        let mut out = ModuleOutput::default();
+        push_lab_flags(&mut out, &[&low], None);
+        assert!(out.flags.is_empty(), "{:?}", out.flags);
     }
 
     /// 29.97 printed as "30.0" beside the class "25 to 29.9"; 18.46 as "about 18.5 kg/m², below

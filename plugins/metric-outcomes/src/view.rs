@@ -7,7 +7,7 @@ use cohortpress_metric_api::view::{
     Interval, ModuleView, OutputReader, OutputWriter, RowReader, TableRow, TypedFlag, ViewError,
     cell,
 };
-use cohortpress_metric_api::{Cell, LabTest, MetricModule, ModuleSpec, code_enum};
+use cohortpress_metric_api::{Cell, Censor, LabTest, MetricModule, ModuleSpec, code_enum};
 
 /// Output names of the `outcomes` module.
 pub mod names {
@@ -200,7 +200,7 @@ pub struct MilestoneRow {
     pub threshold_weight_kg: Option<f64>,
     /// Reached?
     pub reached: bool,
-    /// First day the trend was at or below it.
+    /// The first weigh-in day on or after the first day the trend was at or below it.
     pub date_reached: Option<NaiveDate>,
 }
 
@@ -250,6 +250,9 @@ pub struct LabRow {
     pub category: LabCategory,
     /// Estimated average glucose, mg/dL (HbA1c only).
     pub eag_mg_dl: Option<f64>,
+    /// `>`, `>=`, `<` or `<=` when the laboratory reported only a bound (a censored value:
+    /// `value` and `value_alt` are that bound, not a measurement, and `eag_mg_dl` is empty).
+    pub qualifier: Option<Censor>,
 }
 
 impl TableRow for LabRow {
@@ -262,6 +265,7 @@ impl TableRow for LabRow {
         ("unit_alt", "", "Other unit"),
         ("category", "", "Category"),
         ("eag_mg_dl", "mg/dL", "Estimated average glucose"),
+        ("qualifier", "", "Bound"),
     ];
 
     fn read(r: &RowReader<'_>) -> Result<Self, ViewError> {
@@ -274,6 +278,7 @@ impl TableRow for LabRow {
             unit_alt: r.text("unit_alt")?.map(str::to_string),
             category: r.required("category", r.code("category")?)?,
             eag_mg_dl: r.number("eag_mg_dl")?,
+            qualifier: r.code("qualifier")?,
         })
     }
 
@@ -287,6 +292,7 @@ impl TableRow for LabRow {
             cell::text(self.unit_alt.as_deref()),
             cell::code(Some(self.category)),
             cell::number(self.eag_mg_dl),
+            cell::code(self.qualifier),
         ]
     }
 }

@@ -396,16 +396,19 @@ fn outcomes_from_the_trend() {
     assert_eq!(out.text("weight_change_category"), Some("loss_7_to_10"));
     assert_eq!(out.text("current_weight_source"), Some("trend"));
 
-    // Milestones: 97 kg on day 24 (03-25), 95 on day 40 (04-10), 93 on day 56 (04-26);
-    // 90 kg would be day 80, after the period.
+    // Milestones: the trend reaches 97 kg on day 24 (03-25), 95 on day 40 (04-10), 93 on day
+    // 56 (04-26); 90 kg would be day 80, after the period. Each is dated by the weigh-in that
+    // showed it, the first on or after the crossing (weigh-ins on days 0, 10, 40 and 70): day
+    // 40 (04-10) for 3 and 5 %, day 70 (05-10) for 7 %. The crossing days alone were points on
+    // a line drawn across 30 days without a weigh-in.
     let t = out.table("milestones").unwrap();
     let rows: Vec<Vec<String>> = t.rows.iter().map(|r| text_cells(r)).collect();
     assert_eq!(
         rows,
         vec![
-            vec!["3", "97", "yes", "2027-03-25"],
+            vec!["3", "97", "yes", "2027-04-10"],
             vec!["5", "95", "yes", "2027-04-10"],
-            vec!["7", "93", "yes", "2027-04-26"],
+            vec!["7", "93", "yes", "2027-05-10"],
             vec!["10", "90", "no", ""],
         ]
     );
@@ -869,6 +872,7 @@ fn lab(k: i64, test: LabTest, value: f64, unit: &str, as_written: f64) -> LabRes
         value,
         unit_as_written: unit.into(),
         value_as_written: as_written,
+        censored: None,
     }
 }
 
@@ -897,7 +901,8 @@ fn labs_table_and_lab_flags() {
             "value_alt",
             "unit_alt",
             "category",
-            "eag_mg_dl"
+            "eag_mg_dl",
+            "qualifier",
         ]
     );
     assert_eq!(t.rows.len(), 5);
@@ -921,7 +926,7 @@ fn labs_table_and_lab_flags() {
     // Blood pressure is reported, not classified.
     assert_eq!(
         row(3)[1..],
-        ["systolic_bp", "128", "mmHg", "", "", "recorded", ""]
+        ["systolic_bp", "128", "mmHg", "", "", "recorded", "", ""]
     );
     assert_eq!(row(4)[6], "prediabetes_range");
 

@@ -252,7 +252,8 @@ impl MetricModule for TrendModule {
                     names::REGAIN_VERDICT,
                     "text",
                     "",
-                    "regaining, not_regaining, no_prior_loss or insufficient_data",
+                    "regaining, not_regaining, no_prior_loss or insufficient_data (no trend, \
+                     or too few recent weigh-ins to say; docs/METHODS.md, Regain)",
                 ),
                 OutputSpec::new(
                     "source_offsets",
@@ -483,6 +484,11 @@ fn daily_means(
 fn insufficient(out: &mut ModuleOutput, days: usize, to: NaiveDate) {
     let status = Status::InsufficientData;
     out.push_text(names::STATUS, status.as_str(), status.label());
+    // Without a trend there is no regain verdict either: said as such, not left empty (the
+    // tidy metrics had an empty `regain_verdict` here and `insufficient_data` for a trend whose
+    // weigh-ins stopped weeks before the period's end).
+    let verdict = RegainVerdict::InsufficientData;
+    out.push_text(names::REGAIN_VERDICT, verdict.as_str(), verdict.label());
     out.push_flag(
         TrendFlag::InsufficientData.as_str(),
         FlagSeverity::Info,
@@ -1154,8 +1160,20 @@ fn compute_trend(
         RegainVerdict::NoPriorLoss
     } else if slope_regain || regain.confidence >= REGAIN_CONFIDENCE {
         RegainVerdict::Regaining
-    } else {
+    } else if status == Status::Plateau
+        || window
+            .as_ref()
+            .is_some_and(|w| w.kind != WindowKind::InsufficientData)
+    {
+        // Not regaining needs the recent weigh-ins the status needs: last weeks that hold
+        // those a window's verdict needs (`min_weigh_ins` days, three weeks in four with one),
+        // or a plateau still going in them (the status `plateau`). Three weigh-ins weeks apart
+        // give a trend drawn straight between them, lowest at the last one, and were
+        // `not_regaining` whatever the weight did between them; a rise the level test confirms
+        // is `regaining` above, however sparse the weigh-ins.
         RegainVerdict::NotRegaining
+    } else {
+        RegainVerdict::InsufficientData
     };
     out.push_text(names::REGAIN_VERDICT, verdict.as_str(), verdict.label());
     out

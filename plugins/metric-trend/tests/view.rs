@@ -37,7 +37,10 @@ fn too_few_weigh_ins_still_read_with_the_later_outputs_missing() {
     let v = TrendView::from_output(&out).unwrap();
     assert_eq!(v.status, Status::InsufficientData);
     assert_eq!(v.flags[0].code, TrendFlag::InsufficientData);
-    assert_eq!(v.regain_verdict, None);
+    // No trend, no regain verdict: said as `insufficient_data`, as for a trend whose
+    // weigh-ins stopped weeks before the period's end (it was left empty here).
+    assert_eq!(v.regain_verdict, Some(RegainVerdict::InsufficientData));
+    assert_eq!(out.text("regain_verdict"), Some("insufficient_data"));
     assert_eq!(v.current_weight_kg.value, None);
     assert!(v.periods.is_empty());
     assert_eq!(TrendView::from_output(&v.to_output()).unwrap(), v);
@@ -62,4 +65,31 @@ fn a_renamed_output_or_column_is_an_error_that_names_it() {
         e.to_string(),
         "module `trend`, output `periods`: the table is missing"
     );
+}
+
+/// Three weigh-ins weeks apart (the fixture's first and middle ones, and its last 1 kg
+/// heavier: down from 92 kg, then up by about 1 % of it) cannot tell a rise of more than 1 % of
+/// baseline weight from none: the verdict was `not_regaining`, now `insufficient_data`, the
+/// status's answer for the same last weeks. With every weigh-in the fixture's person is
+/// `not_regaining`.
+#[test]
+fn three_sparse_weigh_ins_give_no_regain_verdict() {
+    let m = TrendModule;
+    let mut data = fixture::participant();
+    let n = data.weights.len();
+    let mut last = data.weights[n - 1].clone();
+    last.weight = cohortpress_metric_api::units::Mass::from_kg(last.weight.kg() + 1.0);
+    data.weights = vec![data.weights[0].clone(), data.weights[n / 2].clone(), last];
+    let out = m.compute(&fixture::context(&m.spec(), &[]), &data).unwrap();
+    let v = TrendView::from_output(&out).unwrap();
+    // The level test alone (the trend drawn straight between the three, lowest at the last)
+    // finds no rise: that alone was `not_regaining`.
+    assert!(out.scalar("regain_confidence").unwrap() <= 0.1);
+    assert_eq!(out.text("status"), Some("insufficient_data"));
+    assert_eq!(v.regain_verdict, Some(RegainVerdict::InsufficientData));
+    let full = m
+        .compute(&fixture::context(&m.spec(), &[]), &fixture::participant())
+        .unwrap();
+    assert!(full.scalar("regain_confidence").unwrap() <= 0.1);
+    assert_eq!(full.text("regain_verdict"), Some("not_regaining"));
 }

@@ -1669,6 +1669,38 @@ fn lab_tests_named_by_loinc_code_are_read() {
     assert!(diags[0].message.contains("unknown test"));
 }
 
+/// A value beyond the assay's range, as laboratories export it, is read as the bound it is:
+/// `>14.0` HbA1c was dropped as "not a number", and with it the diabetes-range flag.
+#[test]
+fn censored_lab_values_are_read_as_bounds() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,hba1c,>14.0,%\n2026-04-02,hba1c,> 14.0,%\n2026-04-03,hba1c,>=14,%\n2026-04-04,hba1c,<5.0,%\n2026-04-05,hba1c,≤ 31 mmol/mol,\n2026-04-06,hba1c,6.1,%\n2026-04-07,blood_pressure,>180/110,\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let got: Vec<(f64, Option<Censor>)> = v.iter().map(|l| (l.value, l.censored)).collect();
+    assert_eq!(got.len(), 6, "{diags:#?}");
+    assert_eq!(got[0], (14.0, Some(Censor::Above)));
+    assert_eq!(got[1], (14.0, Some(Censor::Above)));
+    assert_eq!(got[2], (14.0, Some(Censor::AtLeast)));
+    assert_eq!(got[3], (5.0, Some(Censor::Below)));
+    // 31 mmol/mol is 5.0 % (Hoelzel et al. 2004, Clin Chem 50:166): a bound converts as a value.
+    assert!((got[4].0 - 4.98).abs() < 0.01, "{got:?}");
+    assert_eq!(got[4].1, Some(Censor::AtMost));
+    assert_eq!(v[4].unit_as_written, "mmol/mol");
+    assert_eq!(got[5], (6.1, None));
+    // A bound on a blood pressure pair is not read, and says so.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(
+        diags[0].message.contains("blood pressure pair"),
+        "{diags:#?}"
+    );
+}
+
 #[test]
 fn labs_are_converted_to_canonical_units() {
     let mut diags = Vec::new();

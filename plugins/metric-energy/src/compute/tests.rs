@@ -1094,6 +1094,42 @@ fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
     assert_eq!(severity, FlagSeverity::Notice, "{message}");
     assert!(message.contains("a BMI below 16"), "{message}");
     assert!(!message.contains(" kg"), "{message}");
+    // A notice is not for a clinician's list, and its words do not ask for one: they did,
+    // and the report printed the request among the plain notices (sample program, SG-050).
+    assert!(!message.contains("clinician"), "{message}");
+    assert!(message.contains("raised towards maintenance"), "{message}");
+    // Every forecast flag: clinical exactly when it asks for a licensed clinician, and the
+    // runs above give both kinds, including a resting weight between BMI 16 and 18.5.
+    let mut kinds = Vec::new();
+    for (start, per_week) in [
+        (60.0, 0.5),
+        (60.0, 0.7),
+        (52.0, 0.3),
+        (70.0, 0.7),
+        (105.0, 1.0),
+        (95.0, 0.7),
+        (90.0, 0.6),
+        (95.0, 0.6),
+        (100.0, 0.65),
+        (50.0, 0.4),
+    ] {
+        if let Some((severity, message)) = flag(&run_with(start, per_week)) {
+            assert_eq!(
+                severity == FlagSeverity::Clinical,
+                message.contains("please review this with a licensed clinician"),
+                "{start} kg, {per_week} kg/week: {severity:?} {message}"
+            );
+            kinds.push((severity, message.contains("settle in the end at about")));
+        }
+    }
+    assert!(kinds.contains(&(FlagSeverity::Notice, true)), "{kinds:?}");
+    assert!(
+        kinds
+            .iter()
+            .filter(|k| k.0 == FlagSeverity::Clinical)
+            .count()
+            >= 4
+    );
     // Already at BMI 16.9 (46 kg) and losing 0.4 kg a week: the path goes below BMI 16
     // (43.6 kg), and the flag says so without a weight there.
     let out = run_with(50.0, 0.4);
