@@ -1462,15 +1462,17 @@ fn read_records(
     // name (a clinic's `Height (in)` beside `Weight (lb)`), is another measurement, not ours
     // misspelt: named in the note of columns not read. Its warning ended every run on such a
     // standard export "with warnings" (exit code 1). One holding ours as a word (`Weight 2`)
-    // keeps its warning.
+    // keeps its warning, unless its other words only describe a column the file reads already
+    // (a lab export's `Test description` beside its LOINC code read as `test`).
     let mut k = 0;
     while k < extra_at.len() {
         let i = extra_at[k];
         let key = header_key(&written[i]).0;
         let near = near_by_spelling(&key, spec);
-        if !near.is_empty()
+        if (!near.is_empty()
             && !holds_ours(&key, spec)
-            && near.iter().all(|c| columns.contains_key(c))
+            && near.iter().all(|c| columns.contains_key(c)))
+            || describes_read_column(&key, spec, &columns)
         {
             extra_at.remove(k);
             extra.remove(k);
@@ -2505,6 +2507,42 @@ fn near_by_spelling(key: &str, spec: &FileSpec) -> Vec<&'static str> {
             d <= 1 || (d == 2 && (letters >= 5 || (letters == 4 && same_letters(c))))
         })
         .collect()
+}
+
+/// Words that name something about a value rather than a second value: a lab export's `Test
+/// description`, `Test name` or `Test code` beside the column it reads as `test`, a tracker's
+/// `Activity type` beside `Activity` (common practice of such exports).
+const DESCRIBING_WORDS: [&str; 12] = [
+    "description",
+    "name",
+    "code",
+    "comment",
+    "comments",
+    "note",
+    "notes",
+    "text",
+    "label",
+    "type",
+    "category",
+    "status",
+];
+
+/// Whether `key` (as [`header_key`] writes it) is a column of ours that the file reads already,
+/// in `read`, with only [`DESCRIBING_WORDS`] beside it (`test_description`): another field about
+/// the same thing, not ours misspelt. A standard lab export (`Specimen date;LOINC;Test
+/// description;Result;Units` with `LOINC` mapped to `test`) ended every run with a warning.
+fn describes_read_column(key: &str, spec: &FileSpec, read: &BTreeMap<&'static str, usize>) -> bool {
+    let words: Vec<&str> = key.split('_').filter(|w| !w.is_empty()).collect();
+    spec.all_columns()
+        .filter(|c| read.contains_key(c))
+        .any(|c| {
+            let parts: Vec<&str> = c.split('_').collect();
+            parts.iter().all(|p| words.contains(p))
+                && words.iter().any(|w| !parts.contains(w))
+                && words
+                    .iter()
+                    .all(|w| parts.contains(w) || DESCRIBING_WORDS.contains(w))
+        })
 }
 
 /// Whether `key` holds a column name of ours as a whole word (`weight_2`) or is one edit from
@@ -4309,6 +4347,32 @@ mod tests {
         read_table(text, &weights, &CsvOptions::default(), &ctx, &mut d);
         assert_eq!(d.len(), 1, "{d:#?}");
         assert_eq!(d[0].message, "extra column `Weight 2` is ignored");
+        // `Test description` beside the column read as `test` (a lab export's LOINC code,
+        // mapped) only describes it: named in the note, as `Weight 2` is not.
+        let labs = crate::program::files::LABS;
+        let mut map = BTreeMap::new();
+        map.insert(
+            "labs".to_string(),
+            ColumnMap::from([("loinc".to_string(), "test".to_string())]),
+        );
+        let opts = CsvOptions {
+            columns: Arc::new(map),
+            ..CsvOptions::default()
+        };
+        let mut d = Vec::new();
+        let text =
+            "Date;LOINC;Test description;Result;Units\n2026-09-07;4548-4;HbA1c;41;mmol/mol\n";
+        let t = read_table(text, &labs, &opts, &ctx, &mut d);
+        assert!(d.is_empty(), "{d:#?}");
+        assert_eq!(t.unwrap().rows.len(), 1);
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        assert!(
+            notes
+                .iter()
+                .any(|n| n.starts_with("columns `Test description` are not read")
+                    || n.starts_with("column `Test description` is not read")),
+            "{notes:#?}"
+        );
         // `sorce` is a slip of `source`, which the file does not read: still warned about.
         let mut d = Vec::new();
         let text = "Date,Weight,Unit,sorce\n2026-09-07,81.5,kg,home\n";

@@ -11,7 +11,7 @@
 //! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else; no amount while the last four weeks cannot tell whether it goes on, only more weigh-ins |
 //! | 3a | the same at a BMI below `low_bmi_losing_below` (20; from age 70 the higher `low_bmi_losing_below_70_plus`, 22) | `maintain` | that a rise at that BMI is no cause for concern; nothing to stop it |
-//! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month; no amounts |
+//! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month (in the program's last report, that it is the last); no amounts |
 //! | 5 | target reached, BMI below `loss_bmi_at_least` (from age 70 below `loss_bmi_at_least_70_plus`, default 30), or a target that is not a loss | `maintain` | the intake and activity that hold the current weight (energy model); no loss options |
 //! | 5a | otherwise, too few recent weigh-ins for a trend, or a trend too noisy to tell whether the weight is going down, holding or rising (`unclear`) | `too_little_data` | as row 4 |
 //! | 6 | losing, loss still the goal | `keep_going` | encouragement; a caution if the pace may be too fast |
@@ -614,6 +614,9 @@ struct Facts {
     /// The day of the last weigh-in when it is [`RECENT_WEIGH_IN_DAYS`] or more before the
     /// period's end: the trend weight is then that day's, not a current one.
     stale_since: Option<NaiveDate>,
+    /// Whether the period reaches the program's end: no later month's report follows, so the
+    /// report promises none.
+    last_report: bool,
 }
 
 /// Days after which a last weigh-in no longer gives a current weight: the last four weeks of
@@ -669,6 +672,7 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .and_then(|t| t.days_since_last_weigh_in)
             .filter(|d| *d >= RECENT_WEIGH_IN_DAYS)
             .map(|d| plan.period.to - chrono::Duration::days(d.round() as i64)),
+        last_report: plan.period.to >= plan.program.info.end,
     };
     compose(phase, &state, &t, &facts)
 }
@@ -684,6 +688,21 @@ fn careful_intake(lower: f64, logged: Option<f64>) -> f64 {
 /// Whether the logged intake, not the implied intake's lower bound, sets the careful end.
 fn log_binds(lower: f64, logged: Option<f64>) -> bool {
     logged.is_some_and(|l| l < lower)
+}
+
+/// How often to weigh in, as the target is set: "once a week", "twice a week", "3 times a
+/// week", "1.5 times a week" (a target of 1 read "about 1 times a week").
+fn weigh_in_frequency(per_week: f64) -> String {
+    let r = (per_week * 10.0).round() / 10.0;
+    if (r - 1.0).abs() < 1e-9 {
+        "once a week".into()
+    } else if (r - 2.0).abs() < 1e-9 {
+        "twice a week".into()
+    } else if (r - r.round()).abs() < 1e-9 {
+        format!("{} times a week", fmt::fixed(r, 0))
+    } else {
+        format!("{} times a week", fmt::fixed(r, 1))
+    }
 }
 
 fn pace(units: UnitSystem) -> &'static str {
@@ -767,10 +786,18 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
             } else {
                 "There are not enough recent weigh-ins to see how your weight is moving, so this report makes no suggestions this month.".into()
             });
-            g.paragraphs.push(format!(
-                "Weighing in about {} times a week, at the same time of day, lets next month's report show where you stand. {staff}",
-                fmt::fixed(f.weigh_ins_target, 0)
-            ));
+            g.paragraphs.push(if f.last_report {
+                // The program's last report: no later one will show it.
+                format!(
+                    "This is the program's last report. Weighing in about {}, at the same time of day, still shows you how your weight is moving. {staff}",
+                    weigh_in_frequency(f.weigh_ins_target)
+                )
+            } else {
+                format!(
+                    "Weighing in about {}, at the same time of day, lets next month's report show where you stand. {staff}",
+                    weigh_in_frequency(f.weigh_ins_target)
+                )
+            });
             g
         }
         Phase::Regain => regain(t, f, floor, state),
@@ -898,8 +925,8 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     let direction_known = state.status == TrendStatus::Regaining || state.still_rising;
     if !direction_known {
         g.paragraphs.push(format!(
-            "Until it is clear whether your weight is still going up, this report suggests no change to how much you eat or how active you are. Weighing in about {} times a week, at the same time of day, for the next few weeks will show whether it has steadied; going back to the habits that worked for you earlier is a good first step meanwhile.",
-            fmt::fixed(f.weigh_ins_target, 0)
+            "Until it is clear whether your weight is still going up, this report suggests no change to how much you eat or how active you are. Weighing in about {}, at the same time of day, for the next few weeks will show whether it has steadied; going back to the habits that worked for you earlier is a good first step meanwhile.",
+            weigh_in_frequency(f.weigh_ins_target)
         ));
     } else if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
         g.options_intro =
@@ -958,10 +985,16 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         // "Back to" a loss only for someone who has lost: a weight that has only gone up since
         // enrolment (no prior loss, no rise from a lower point) has no loss to return to.
         let lost_before = state.regained || state.change_percent.is_some_and(|c| c < 0.0);
-        g.closing.push(format!(
-            "Once your weight is steady again, next month's report will look at what it would take to {} a steady loss.",
-            if lost_before { "get back to" } else { "start" }
-        ));
+        let aim = if lost_before { "get back to" } else { "start" };
+        g.closing.push(if f.last_report {
+            format!(
+                "This is the program's last report: once your weight is steady again, the program staff can help you look at what it would take to {aim} a steady loss."
+            )
+        } else {
+            format!(
+                "Once your weight is steady again, next month's report will look at what it would take to {aim} a steady loss."
+            )
+        });
     }
     g
 }
@@ -1186,8 +1219,8 @@ fn maintain(
     }
     if state.status == TrendStatus::Insufficient {
         g.paragraphs.push(format!(
-            "Weighing in about {} times a week helps you notice early if your weight starts to creep up.",
-            fmt::fixed(f.weigh_ins_target, 0)
+            "Weighing in about {} helps you notice early if your weight starts to creep up.",
+            weigh_in_frequency(f.weigh_ins_target)
         ));
     }
     g.paragraphs.push(format!(
@@ -1270,9 +1303,11 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     let (Some(need), Some(imp), Some(slope), Some(w)) =
         (f.intake_need, f.implied, f.slope, f.weight_kg)
     else {
-        g.paragraphs.push(
-            "The records do not yet allow a reliable estimate of what it would take to restart a steady loss; more regular weigh-ins and food logs will help next month's report.".into(),
-        );
+        g.paragraphs.push(if f.last_report {
+            "The records do not allow a reliable estimate of what it would take to restart a steady loss; more regular weigh-ins and food logs would be needed for one.".into()
+        } else {
+            "The records do not yet allow a reliable estimate of what it would take to restart a steady loss; more regular weigh-ins and food logs will help next month's report.".into()
+        });
         return g;
     };
     let target = t.target_loss_kg_per_week;
@@ -1682,6 +1717,7 @@ mod tests {
             lab_in_diabetes_range: false,
             glucose_lowering: false,
             stale_since: None,
+            last_report: false,
         }
     }
 
@@ -1975,6 +2011,80 @@ mod tests {
             g.paragraphs
         );
         assert!(g.paragraphs[0].starts_with("You have reached your target"));
+    }
+
+    #[test]
+    fn the_programs_last_report_promises_no_later_one() {
+        // Own 18-month trial (tryout22), November 2026 = the program's last month: LI-104,
+        // regaining, read "Once your weight is steady again, next month's report will look at
+        // …", and LI-103 (one weigh-in) "… lets next month's report show where you stand";
+        // no report of a later month comes.
+        let t = Thresholds::default();
+        let mut s = st(Regaining);
+        s.change_percent = Some(-2.0);
+        let mut f = facts();
+        f.balance = Some(Est {
+            value: 260.0,
+            lower: Some(100.0),
+            upper: Some(420.0),
+        });
+        let mut too_little = st(Regaining);
+        too_little.status = TrendStatus::Insufficient;
+        let mut no_estimate = facts();
+        no_estimate.intake_need = None;
+        let texts = |f: &Facts, no_estimate: &Facts| {
+            let mut all = Vec::new();
+            for g in [
+                compose(Phase::Regain, &s, &t, f),
+                compose(Phase::TooLittleData, &too_little, &t, f),
+                compose(Phase::RestartLoss, &st(Plateau), &t, no_estimate),
+            ] {
+                all.extend(g.paragraphs);
+                all.extend(g.closing);
+            }
+            all
+        };
+        // Before the last month each of the three looks ahead to next month's report.
+        let before = texts(&f, &no_estimate);
+        assert_eq!(
+            before.iter().filter(|p| p.contains("next month")).count(),
+            3,
+            "{before:?}"
+        );
+        f.last_report = true;
+        no_estimate.last_report = true;
+        let last = texts(&f, &no_estimate);
+        assert!(last.iter().all(|p| !p.contains("next month")), "{last:?}");
+        assert!(last.contains(
+            &"This is the program's last report: once your weight is steady again, the program staff can help you look at what it would take to get back to a steady loss.".to_string()
+        ));
+        assert!(last.iter().any(|p| p.starts_with(
+            "This is the program's last report. Weighing in about 3 times a week, at the same time of day, still shows you how your weight is moving."
+        )));
+        assert!(
+            last.iter()
+                .any(|p| p
+                    .ends_with("more regular weigh-ins and food logs would be needed for one."))
+        );
+    }
+
+    #[test]
+    fn a_weigh_in_target_is_written_as_people_say_it() {
+        // Own trial (tryout22), `weigh_ins_per_week: 1`: "Weighing in about 1 times a week".
+        assert_eq!(weigh_in_frequency(1.0), "once a week");
+        assert_eq!(weigh_in_frequency(2.0), "twice a week");
+        assert_eq!(weigh_in_frequency(3.0), "3 times a week");
+        assert_eq!(weigh_in_frequency(1.5), "1.5 times a week");
+        let mut f = facts();
+        f.weigh_ins_target = 1.0;
+        let mut s = st(Regaining);
+        s.status = TrendStatus::Insufficient;
+        let g = compose(Phase::TooLittleData, &s, &Thresholds::default(), &f);
+        assert!(
+            g.paragraphs[1].starts_with("Weighing in about once a week, at the same time of day,"),
+            "{:?}",
+            g.paragraphs
+        );
     }
 
     #[test]

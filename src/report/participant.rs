@@ -293,9 +293,30 @@ pub fn build(
                 left.filter(|w| *w < plan.period.from),
                 unread == ActivityUnread::NoLog,
             );
+            // The weeks the energy module read off a trend: for someone who stopped the
+            // program, it was given the records up to the day they left, whose trend ends at
+            // the last weigh-in on or before it, not the trend the chart draws through their
+            // follow-up weigh-ins. Weeks between that weigh-in and the day they left have no
+            // implied intake for want of a trend, not because the weight moved implausibly
+            // (own trial, LI-004: last weigh-in 2 Jun, left 20 Jun; the note blamed a fall or
+            // rise for the weeks of 8 and 15 June).
+            let energy_trend_end = p.withdrew.filter(|_| p.follow_up_weigh_ins()).map(|w| {
+                data.weights
+                    .iter()
+                    .map(|x| x.date)
+                    .filter(|d| *d <= w)
+                    .max()
+            });
             let trend_span = v.trend.as_ref().and_then(|t| {
                 let pts = &t.weight_trend.points;
-                Some((pts.first()?.date, pts.last()?.date))
+                let (first, last) = (pts.first()?.date, pts.last()?.date);
+                match energy_trend_end {
+                    Some(end) => {
+                        let end = end?.min(last);
+                        (end >= first).then_some((first, end))
+                    }
+                    None => Some((first, last)),
+                }
             });
             if let Some(note) = implied_gap_note(&e.weekly_energy, trend_span) {
                 view.chart.alt.push_str(note);
@@ -339,6 +360,14 @@ pub fn build(
         Vec::new()
     };
 
+    // Weigh-ins on one day only: that day's mean is both the starting weight and the last one,
+    // so no change has been measured (one weigh-in in June 2025, November 2026's report read
+    // "Since you started: 0.0 kg", as if the weight had held for 18 months).
+    let change_measured = {
+        let mut days = crate::modules::run::weigh_in_days(data, plan.period.to);
+        days.dedup();
+        days.len() != 1
+    };
     let ctx = ParticipantReportContext {
         program: super::ProgramView::new(plan),
         participant: PersonView {
@@ -348,7 +377,7 @@ pub fn build(
         },
         headline: headline(
             v.trend.as_ref(),
-            v.outcomes.as_ref(),
+            v.outcomes.as_ref().filter(|_| change_measured),
             units,
             left.map(|w| (w, p.follow_up_weigh_ins())),
             // Joined within the last four weeks of the period: the trend has had no four
@@ -374,6 +403,7 @@ pub fn build(
             &v,
             units,
             plan.period.to,
+            change_measured,
             data.weights
                 .iter()
                 .map(|w| w.date)
@@ -467,11 +497,13 @@ fn change_words(
 }
 
 /// Key figures: current and starting weight, change, recent rate, BMI. `to` is the period's
-/// last day, `last_weigh_in` the day of the last weigh-in up to it.
+/// last day, `last_weigh_in` the day of the last weigh-in up to it; `change_measured` is false
+/// when every weigh-in is of one day, so the starting and last weights are the same reading.
 fn summary(
     v: &BuiltinViews,
     units: UnitSystem,
     to: NaiveDate,
+    change_measured: bool,
     last_weigh_in: Option<NaiveDate>,
 ) -> Vec<Kv> {
     let (trend, outcomes) = (v.trend.as_ref(), v.outcomes.as_ref());
@@ -498,7 +530,14 @@ fn summary(
     if let Some(b) = outcomes.and_then(|o| o.baseline_weight_kg) {
         summary.push(Kv::new("Starting weight", &fmt::weight(b, units)));
     }
-    if let (Some(c), Some(pc)) = (
+    if !change_measured {
+        if outcomes.and_then(|o| o.baseline_weight_kg).is_some() {
+            summary.push(Kv::new(
+                "Change since start",
+                "not known yet: your weigh-ins so far are all of one day",
+            ));
+        }
+    } else if let (Some(c), Some(pc)) = (
         change_words(trend, outcomes, units),
         outcomes.and_then(|o| o.change_percent),
     ) {
@@ -932,16 +971,19 @@ fn plateau_evidence(r: &PlateauRow, units: UnitSystem) -> String {
         r.implied_intake_during_kcal_per_day,
     ) {
         parts.push(format!(
-            "Your weight trend implies about {} a day before the plateau and about {} a day during it.",
+            "Your weight trend implies about {} a day early in the program and about {} a day during the plateau.",
             fmt::kcal(before),
             fmt::kcal(during)
         ));
     }
+    // The energy module's expected slope is at the intake the trend implied early in the
+    // program (days 7–34), not at the logged intake: "With the intake you logged, the model
+    // expects …" stood in nine of the sample's September reports (SG-003, SG-004, …).
     if let (Some(expected), Some(observed)) =
         (r.expected_slope_kg_per_week, r.observed_slope_kg_per_week)
     {
         parts.push(format!(
-            "With the intake you logged, the model expects a change of {} at this weight; the trend shows {}.",
+            "Eating as in those early weeks, the model expects a change of {} at your weight when the plateau began; the trend shows {}.",
             fmt::rate_per_week(expected, units),
             fmt::rate_per_week(observed, units)
         ));
@@ -2443,6 +2485,7 @@ mod activity_unread_tests {
             &v,
             UnitSystem::Metric,
             NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+            true,
             None,
         )
         .into_iter()
@@ -2478,7 +2521,7 @@ mod activity_unread_tests {
             outcomes: None,
         };
         let to = NaiveDate::from_ymd_opt(2026, 9, 30).unwrap();
-        let row = &summary(&v, UnitSystem::Metric, to, None)[0];
+        let row = &summary(&v, UnitSystem::Metric, to, true, None)[0];
         assert_eq!(
             row.label,
             "Weight at your last weigh-in (15 Jul 2026, trend)"
@@ -2490,7 +2533,7 @@ mod activity_unread_tests {
             ..v
         };
         assert_eq!(
-            summary(&v, UnitSystem::Metric, to, None)[0].label,
+            summary(&v, UnitSystem::Metric, to, true, None)[0].label,
             "Current weight (trend)"
         );
     }
@@ -2564,6 +2607,31 @@ mod activity_unread_tests {
         );
     }
 
+    /// The plateau's numbers said "With the intake you logged, the model expects a change of
+    /// −0.28 kg/week" (sample, September, SG-003), but the energy module's expected slope is at
+    /// the intake the weight trend implied early in the program, not at any logged intake.
+    #[test]
+    fn a_plateaus_expected_change_is_said_to_be_at_the_early_intake() {
+        use cohortpress_metric_energy::view::{PlateauCause, PlateauRow};
+        let r = PlateauRow {
+            start: NaiveDate::from_ymd_opt(2026, 7, 1).unwrap(),
+            end: NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+            observed_slope_kg_per_week: Some(0.03),
+            expected_slope_kg_per_week: Some(-0.28),
+            implied_intake_before_kcal_per_day: Some(2330.0),
+            implied_intake_during_kcal_per_day: Some(2814.0),
+            classification: PlateauCause::IntakeDrift,
+            evidence: String::new(),
+            intake_change_kcal_per_day: Some(484.0),
+            intake_change_lower_kcal_per_day: Some(300.0),
+            intake_change_upper_kcal_per_day: Some(668.0),
+        };
+        assert_eq!(
+            plateau_evidence(&r, UnitSystem::Metric),
+            "Your weight trend implies about 2,330 kcal a day early in the program and about 2,814 kcal a day during the plateau. Eating as in those early weeks, the model expects a change of −0.28 kg/week at your weight when the plateau began; the trend shows +0.03 kg/week."
+        );
+    }
+
     /// "Too few recent weigh-ins to see how your weight moved" stood above "Recent rate (last
     /// 4 weeks) +0.44 kg/week".
     #[test]
@@ -2584,6 +2652,7 @@ mod activity_unread_tests {
                 v,
                 UnitSystem::Metric,
                 NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+                true,
                 None,
             )
             .iter()

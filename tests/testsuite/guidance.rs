@@ -289,6 +289,29 @@ fn every_sample_participants_options_follow_the_rules() {
 }
 
 #[test]
+fn the_programs_last_month_promises_no_later_report() {
+    // The sample's reported month, September 2026, is its last (program.end 2026-09-30), and
+    // a cron run after the end reports it again: SG-013, SG-015, SG-032 and SG-033 read
+    // "… next month's report …", a report that never comes.
+    let s = sample();
+    assert_eq!(s.plan.period.to, s.plan.program.info.end);
+    let mut last = BTreeSet::new();
+    for (id, (_, _, g, _)) in &s.people {
+        for p in g.paragraphs.iter().chain(&g.closing) {
+            assert!(!p.contains("next month"), "{id}: {p}");
+            if p.contains("the program's last report") {
+                last.insert(id.as_str());
+            }
+        }
+    }
+    assert_eq!(
+        last,
+        BTreeSet::from(["SG-013", "SG-015", "SG-032", "SG-033"]),
+        "who is told this is the last report"
+    );
+}
+
+#[test]
 fn has_ungrouped_kcal_sees_only_bare_thousands() {
     assert!(has_ungrouped_kcal("about 1020 kcal a day"));
     assert!(!has_ungrouped_kcal(

@@ -513,6 +513,35 @@ fn a_report_without_any_weigh_in_says_so_where_the_weight_would_be() {
     assert!(html.contains("No weigh-in is recorded yet"), "the headline");
 }
 
+/// Someone whose only weigh-in was on the day they joined (own 18-month trial, LI-103: one
+/// clinic weigh-in in June 2025) read, in every later report, "Since you started: 0.0 kg" in the
+/// headline and "Change since start 0.0 kg (0.0 %)": the starting and last weights are the same
+/// reading, so no change was measured, yet it read as a weight that had held.
+#[test]
+fn a_single_weigh_in_day_reports_no_change_since_the_start() {
+    let t = ProgramTest::demo(2);
+    let path = t.dir.join("participants/SG-001/weights.csv");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let mut lines = text.lines();
+    let (header, first) = (lines.next().unwrap(), lines.next().unwrap());
+    // The first day's weigh-ins (a day may hold more than one).
+    let day = &first[..10];
+    let kept: Vec<&str> = std::iter::once(first)
+        .chain(lines.filter(|l| l.starts_with(day)))
+        .collect();
+    std::fs::write(&path, format!("{header}\n{}\n", kept.join("\n"))).unwrap();
+    let html = september_html_of_sg001(&t);
+    let summary = &html[html.find("aria-labelledby=\"h-summary\"").expect("summary")..];
+    let summary = &summary[..summary.find("</section>").expect("its end")];
+    assert!(summary.contains("Starting weight"), "{summary}");
+    assert!(
+        summary.contains("not known yet: your weigh-ins so far are all of one day"),
+        "{summary}"
+    );
+    assert!(!summary.contains("0.0 kg ("), "{summary}");
+    assert!(!html.contains("Since you started"), "the headline");
+}
+
 /// The energy section's explanation said "The intake implied by your weight trend comes from a
 /// published model …; it often differs from logged intake" in a report that shows no implied
 /// intake anywhere, neither above nor in the weekly table (two weigh-ins: no trend). It now
@@ -597,6 +626,73 @@ fn a_withheld_weekly_implied_intake_is_explained() {
     for id in ["SG-001", "SG-007", "SG-018"] {
         assert!(!alt(id).contains(note), "{id}: {}", alt(id));
     }
+}
+
+/// Own trial (tryout22), LI-004: stopped the program on 20 Jun 2026, last weigh-in before it
+/// on 2 Jun, follow-up weigh-ins from July. Its weekly energy table showed a dash for the weeks
+/// of 8 and 15 June (the energy module reads the trend of the records up to the day of leaving,
+/// which ends on 2 June), and the note under it blamed "a fall faster than even a very low
+/// intake explains, or a rise faster than food can", as those weeks lie within the trend the
+/// chart draws through the follow-up weigh-ins.
+#[test]
+fn weeks_after_the_last_weigh_in_before_leaving_are_not_called_implausible() {
+    let note = "A dash under implied intake, and a gap in its line,";
+    let prog = ProgramTest::sample();
+    let folder = prog.dir.join("participants/SG-001");
+    let profile = folder.join("profile.yaml");
+    let mut p = std::fs::read_to_string(&profile).unwrap();
+    p.push_str("withdrew: 2026-08-15\nwithdrawal_reason: stopped_program\n");
+    std::fs::write(&profile, p).unwrap();
+    let weights = folder.join("weights.csv");
+    let mut kept: String = std::fs::read_to_string(&weights)
+        .unwrap()
+        .lines()
+        .filter(|l| l.starts_with("date") || &l[..10] <= "2026-07-25")
+        .map(|l| format!("{l}\n"))
+        .collect();
+    kept.push_str(
+        "2026-09-05,64.5,kg,home-scale\n2026-09-15,64.4,kg,home-scale\n2026-09-25,64.6,kg,home-scale\n",
+    );
+    std::fs::write(&weights, kept).unwrap();
+    let out = prog.dir.parent().unwrap().join("out-left");
+    let outcome = prog.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert_eq!(outcome.code, 4, "{}", outcome.stderr);
+    // The weeks from the last weigh-in before leaving to the day left have no implied intake.
+    let tables = std::fs::read_to_string(out.join("metrics/tables.csv")).unwrap();
+    let week_rows = |week: &str| -> Vec<String> {
+        let row = tables
+            .lines()
+            .find(|l| {
+                l.starts_with("SG-001,energy,weekly_energy,") && l.ends_with(&format!(",{week}"))
+            })
+            .unwrap_or_else(|| panic!("week {week}"))
+            .split(',')
+            .nth(3)
+            .unwrap()
+            .to_string();
+        tables
+            .lines()
+            .filter(|l| l.starts_with(&format!("SG-001,energy,weekly_energy,{row},")))
+            .map(String::from)
+            .collect()
+    };
+    let august = week_rows("2026-08-03");
+    let implied = august
+        .iter()
+        .find(|l| l.contains(",implied_intake_kcal_per_day,"))
+        .expect("the implied intake's cell");
+    assert!(implied.ends_with("kcal/d,"), "{august:?}");
+    let html = std::fs::read_to_string(out.join("participants/SG-001.html")).unwrap();
+    assert!(!html.contains(note), "the note blames a fast fall or rise");
 }
 
 #[test]

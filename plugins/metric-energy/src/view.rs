@@ -239,9 +239,11 @@ pub struct PlateauRow {
     pub end: NaiveDate,
     /// Observed trend slope, kg/wk.
     pub observed_slope_kg_per_week: Option<f64>,
-    /// Slope the model expects with the logged intake, kg/wk.
+    /// Slope the model expects at the plateau's starting weight with the intake implied early
+    /// in the program (`implied_intake_before_kcal_per_day`), kg/wk.
     pub expected_slope_kg_per_week: Option<f64>,
-    /// Implied intake before the plateau, kcal/d.
+    /// Implied intake early in the program (days 7–34, or from enrolment to the plateau's
+    /// start when it begins earlier), kcal/d.
     pub implied_intake_before_kcal_per_day: Option<f64>,
     /// Implied intake during the plateau, kcal/d.
     pub implied_intake_during_kcal_per_day: Option<f64>,
