@@ -10,7 +10,7 @@
 //! unknowns of T. Each test also runs the attacker on the unprotected figures, to show that
 //! the attack it stands for is real.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
 
 use serde_json::Value;
 
@@ -241,6 +241,7 @@ fn publish_in_order(months: &[Vec<Person>], min: u32) -> Vec<Release> {
     for people in months {
         let (report, published) = summarize_release(&rows(people), &opts(min), &history);
         history.sums.extend(published.sums);
+        history.orders.extend(published.orders);
         history.counts.extend(published.counts);
         history.count_labels.extend(published.count_labels);
         out.push(Release {
@@ -1901,4 +1902,119 @@ fn week_means_of_three_banded_sites_across_releases_do_not_weigh_out_who_stopped
             .get("value")
             .is_none()
     );
+}
+
+/// (measure, the (person, value bits) it was taken over, the printed median).
+type PrintedMedian = (&'static str, BTreeSet<(String, u64)>, f64);
+
+/// Every adherence median a release prints, as (measure, the (person, value bits) it was taken
+/// over): the attacker knows who is in each section and who has a value (worst case).
+fn printed_medians(rel: &Release) -> Vec<PrintedMedian> {
+    const MEASURES: [&str; 4] = [
+        "activity_minutes_per_week",
+        "weigh_ins_per_week",
+        "food_log_days_per_week",
+        "attendance_to_date_percent",
+    ];
+    let value = |p: &Person, m: &str| match m {
+        "activity_minutes_per_week" => p.row.activity_minutes_per_week,
+        "weigh_ins_per_week" => p.row.weigh_ins_per_week,
+        "food_log_days_per_week" => p.row.food_log_days_per_week,
+        _ => p.row.attendance_percent,
+    };
+    let mut sections: Vec<(Vec<&Person>, &Value)> = Vec::new();
+    if let Some(st) = rel.report["program"].get("stats").filter(|s| !s.is_null()) {
+        sections.push((rel.people.iter().collect(), st));
+    }
+    for split in rel.report["splits"].as_array().unwrap() {
+        for sec in split["sections"].as_array().unwrap() {
+            let Some(st) = sec.get("stats").filter(|s| !s.is_null()) else {
+                continue;
+            };
+            let labels: Vec<String> = if sec["kind"] == "combined" {
+                sec["members"]
+                    .as_array()
+                    .unwrap()
+                    .iter()
+                    .map(|m| m.as_str().unwrap().to_string())
+                    .collect()
+            } else {
+                vec![sec["label"].as_str().unwrap().to_string()]
+            };
+            let members = rel
+                .people
+                .iter()
+                .filter(|p| labels.contains(&p.row.groups["site"]))
+                .collect();
+            sections.push((members, st));
+        }
+    }
+    let mut out = Vec::new();
+    for (members, st) in sections {
+        for m in MEASURES {
+            if let Some(v) = st["adherence"][m]["median"]["value"].as_f64() {
+                let over = members
+                    .iter()
+                    .filter_map(|p| value(p, m).map(|x| (p.name.clone(), x.to_bits())))
+                    .collect();
+                out.push((m, over, v));
+            }
+        }
+    }
+    out
+}
+
+/// Pairs of printed medians of one measure (in any releases) whose values differ in 1 … min − 1
+/// people: the second moved from the first only with those few people's values.
+fn median_attack(releases: &[Release], min: usize) -> Vec<String> {
+    let all: Vec<_> = releases.iter().flat_map(printed_medians).collect();
+    let mut found = Vec::new();
+    for (i, a) in all.iter().enumerate() {
+        for b in &all[i + 1..] {
+            let people: BTreeSet<&String> =
+                a.1.symmetric_difference(&b.1).map(|(n, _)| n).collect();
+            if a.0 == b.0 && !people.is_empty() && people.len() < min {
+                found.push(format!(
+                    "{}: {} then {}, moved by {people:?} alone",
+                    a.0, a.2, b.2
+                ));
+            }
+        }
+    }
+    found
+}
+
+/// A month run again after one person's sessions file was fixed: every count and mean of the
+/// two group reports is the same, and the attendance median moved with that one person's
+/// value. Demo, 80 people, September: SG-026's 11 of 16 sessions fixed to 14 of 16, and the
+/// whole program's and North Office's median went 70 → 75 %, all else unchanged. The median
+/// printed again must not move with fewer than min people's values.
+#[test]
+fn a_median_printed_again_after_one_persons_value_changed_shows_nothing_of_them() {
+    let min = 5;
+    let mut first = cohort(20, &["Kiln Row", "Harbour Yard"], &[], 9);
+    for (i, p) in first.iter_mut().enumerate() {
+        p.row.attendance_percent = Some(40.0 + 3.0 * i as f64);
+    }
+    // P09 (Harbour Yard) 67 % → 55 %: the program's median 70 → 65, Harbour Yard's 70 → 65.
+    let mut fixed = first.clone();
+    fixed[9].row.attendance_percent = Some(55.0);
+    let months = [first, fixed];
+    let open = unprotected(&months, min);
+    assert!(!median_attack(&open, min as usize).is_empty());
+    let moved = |r: &[Release]| {
+        let m = |x: &Release| r_median(&x.report["program"]);
+        (m(&r[0]), m(&r[1]))
+    };
+    assert_eq!(moved(&open), (Some(70.0), Some(65.0)), "the attack is real");
+    let rel = publish_in_order(&months, min);
+    assert_eq!(median_attack(&rel, min as usize), Vec::<String>::new());
+    // The first release still shows its medians; the second says why one is missing.
+    assert_eq!(moved(&rel).0, Some(70.0));
+    let notes = rel[1].report["audit"].to_string();
+    assert!(notes.contains("median session attendance"), "{notes}");
+}
+
+fn r_median(section: &Value) -> Option<f64> {
+    section["stats"]["adherence"]["attendance_to_date_percent"]["median"]["value"].as_f64()
 }

@@ -9,7 +9,8 @@
 //!   without this key.
 //! - `ledger.json`: one entry per release (program id, period, as-of date): every exact count it
 //!   printed as the set of person tokens counted, every mean printed with its n as the list of
-//!   (person token, value key) it sums — value keys are hashes, no value is stored — and the
+//!   (person token, value key) it sums — value keys are hashes, no value is stored —, every
+//!   adherence median printed as the (person token, value key) it was taken over, and the
 //!   whole program's headline figures as printed, for the month-over-month table, and a keyed
 //!   hash of a fixed text ([`key_check`]) that tells whether `secret.key` is the key it was
 //!   written with. A ledger with releases is never given a new key: a missing or different key
@@ -56,6 +57,10 @@ pub struct ReleaseRecord {
     pub count_labels: Vec<String>,
     /// Sums: (person token, value key) pairs.
     pub sums: Vec<Vec<(u64, u64)>>,
+    /// Adherence medians: the values each was taken over, as (person token, value key) pairs.
+    /// Empty in older ledgers (their medians were not recorded).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub orders: Vec<Vec<(u64, u64)>>,
     /// A keyed hash of a fixed text under the key the tokens were made with (see
     /// [`key_check`]): tells a key that does not belong to the ledger. Empty in older ledgers.
     #[serde(default)]
@@ -89,6 +94,7 @@ impl ReleaseRecord {
             counts,
             count_labels,
             sums,
+            orders,
             key_check,
             figures,
             withdrawals: _,
@@ -100,6 +106,7 @@ impl ReleaseRecord {
             && *counts == other.counts
             && *count_labels == other.count_labels
             && *sums == other.sums
+            && *orders == other.orders
             && *key_check == other.key_check
             && *figures == other.figures
     }
@@ -646,6 +653,7 @@ impl Ledger {
                 && r.counts == published.counts
                 && r.count_labels == published.count_labels
                 && r.sums == published.sums
+                && r.orders == published.orders
         })
     }
 
@@ -672,6 +680,7 @@ impl Ledger {
                     .extend(std::iter::repeat_n(String::new(), r.counts.len()));
             }
             h.sums.extend(r.sums.iter().cloned());
+            h.orders.extend(r.orders.iter().cloned());
         }
         h
     }
@@ -787,6 +796,7 @@ pub fn release_record(
         counts: published.counts,
         count_labels: published.count_labels,
         sums: published.sums,
+        orders: published.orders,
         key_check: String::new(),
         figures,
         withdrawals: None,

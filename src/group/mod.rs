@@ -85,6 +85,9 @@ pub struct History {
     pub secret: Option<[u8; 32]>,
     /// Sums published before: per sum, its atoms as (person token, atom key).
     pub sums: Vec<Vec<(u64, u64)>>,
+    /// Medians published before (the adherence medians): per median, the values it was taken
+    /// over as (person token, atom key). Audited as if each were the sum of those values.
+    pub orders: Vec<Vec<(u64, u64)>>,
     /// Counts published before: per count, the person tokens it counted.
     pub counts: Vec<Vec<u64>>,
     /// What each of `counts` counted (the figure's plain name, e.g. "enrolled"), aligned with
@@ -98,6 +101,8 @@ pub struct History {
 pub struct Published {
     /// Every shown sum (mean with its n): its atoms as (person token, atom key).
     pub sums: Vec<Vec<(u64, u64)>>,
+    /// Every shown adherence median: the values it was taken over, as (person token, atom key).
+    pub orders: Vec<Vec<(u64, u64)>>,
     /// Every shown count: the person tokens it counted.
     pub counts: Vec<Vec<u64>>,
     /// The plain name of each of `counts` (aligned).

@@ -1382,10 +1382,20 @@ pub(super) fn build(
                 .collect();
             week_bounds.insert(d as *const Draft, bounds);
         }
-        // Sums: every mean shown with its n, audited with the sums published before.
+        // Sums: every mean shown with its n, audited with the sums published before. The
+        // adherence medians go through the same audit as if each were the sum of the values
+        // it was taken over: a median printed again over the same people after a few of their
+        // values changed (a re-run after one file was fixed), or over people differing by a
+        // few, moves only with those few people's values, and so shows what they did, as the
+        // difference of two such sums would (their atoms, tagged apart, never meet a mean's).
         let mut facts: Vec<audit::SumFact> = Vec::new();
         let mut person_of: HashMap<u64, u64> = HashMap::new();
-        for s in &history.sums {
+        let orders_before: HashSet<BTreeSet<u64>> = history
+            .orders
+            .iter()
+            .map(|s| s.iter().map(|&(_, a)| a).collect())
+            .collect();
+        for s in history.sums.iter().chain(&history.orders) {
             for &(p, a) in s {
                 person_of.insert(a, p);
             }
@@ -1438,13 +1448,31 @@ pub(super) fn build(
                     lines.push((Line::Week(w), 4 + base, atoms));
                 }
             }
+            for (i, values) in raw.adherence.iter().enumerate() {
+                let k = Kind::AdherenceN(i);
+                let who = raw.members.get(&k).map_or(&[][..], Vec::as_slice);
+                if shown(k) && !values.is_empty() {
+                    let atoms = who
+                        .iter()
+                        .zip(values)
+                        .map(|(&p, &v)| (tokens[p], atom(tokens[p], ADHERENCE_TAGS[i], v, 0.0)))
+                        .collect();
+                    lines.push((Line::Adherence(i), 1 + base, atoms));
+                }
+            }
             for (line, priority, atoms) in lines {
                 for &(p, a) in &atoms {
                     person_of.insert(a, p);
                 }
+                let keys: BTreeSet<u64> = atoms.iter().map(|&(_, a)| a).collect();
+                // A median over exactly the values of one printed before is that median again:
+                // it tells nothing new, and withheld it only cost the report (the sample
+                // program's September withheld every attendance median, each the same as
+                // August's, because August's sites had been withheld against July's).
+                let repeat = matches!(line, Line::Adherence(_)) && orders_before.contains(&keys);
                 facts.push(audit::SumFact {
-                    atoms: atoms.iter().map(|&(_, a)| a).collect(),
-                    removable: true,
+                    atoms: keys.into_iter().collect(),
+                    removable: !repeat,
                     priority,
                 });
                 owners.push((d as *const Draft, line, d.label.clone(), atoms));
@@ -1455,23 +1483,34 @@ pub(super) fn build(
             &|a| person_of.get(&a).copied().unwrap_or(a),
             min as usize,
         );
-        let first_new = history.sums.len();
+        let first_new = history.sums.len() + history.orders.len();
         for (j, (d, line, label, atoms)) in owners.into_iter().enumerate() {
             if keep[first_new + j] {
-                if !atoms.is_empty() {
+                if let Line::Adherence(_) = line {
+                    published.orders.push(atoms);
+                } else if !atoms.is_empty() {
                     if let Line::Week(w) = line {
                         week_sum_at.insert((d, w), published.sums.len());
                     }
                     published.sums.push(atoms);
                 }
             } else {
+                let rule = if let Line::Adherence(_) = line {
+                    format!(
+                        "Not shown, because beside the same median in an earlier report, or in \
+                         another section of this one, it would show how the values of fewer \
+                         than {min} people moved it"
+                    )
+                } else {
+                    format!(
+                        "Not shown, because with other figures of this report or of an earlier \
+                         one it would give, by subtraction, the total of fewer than {min} people"
+                    )
+                };
                 audit_notes.push(AuditNote {
                     section: label,
                     figure: line.name(),
-                    rule: format!(
-                        "Not shown, because with other figures of this report or of an earlier \
-                         one it would give, by subtraction, the total of fewer than {min} people"
-                    ),
+                    rule,
                 });
                 withdrawn.entry(d).or_default().insert(line);
             }
@@ -2044,14 +2083,25 @@ fn link_nested_counts<'a>(
     }
 }
 
-/// A weight-change line or week point the sum audit can withhold.
+/// A weight-change line, week point or adherence median the sum audit can withhold.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
 enum Line {
     Bocf,
     Locf,
     Completers,
     Week(u32),
+    /// An adherence median (index into [`ADHERENCE_TAGS`]).
+    Adherence(usize),
 }
+
+/// The atom tag of each adherence measure's values (activity minutes, weigh-ins, food-log
+/// days, attendance), in the order of `Raw::adherence`.
+const ADHERENCE_TAGS: [&str; 4] = [
+    "activity minutes",
+    "weigh-ins",
+    "food-log days",
+    "attendance",
+];
 
 impl Line {
     fn name(self) -> String {
@@ -2060,6 +2110,15 @@ impl Line {
             Line::Locf => "weight change, last observation carried forward".into(),
             Line::Completers => "weight change, completers".into(),
             Line::Week(w) => format!("mean change in week {}", w + 1),
+            Line::Adherence(i) => format!(
+                "median {}",
+                [
+                    "activity minutes per week",
+                    "days with a weigh-in per week",
+                    "food-log days per week",
+                    "session attendance",
+                ][i]
+            ),
         }
     }
 }
@@ -2302,7 +2361,7 @@ fn section_stats(
         n: count(Kind::AdherenceN(i)),
         median: Shown::from_option(
             stats::median(&raw.adherence[i]).map(|v| round_to(v, ADHERENCE_STEPS[i])),
-            hidden(Kind::AdherenceN(i)),
+            hidden(Kind::AdherenceN(i)) || withdrawn.contains(&Line::Adherence(i)),
         ),
     };
     let (plateau_percent, plateau_ci) = share(Kind::PlateauYes, Kind::PlateauWithVerdict);

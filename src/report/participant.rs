@@ -1493,7 +1493,7 @@ fn energy_section(
     push(&mut items, &tdee_label, e.tdee_kcal_per_day);
     push(
         &mut items,
-        "Intake you logged (average)",
+        &format!("Intake you logged (average, {span})"),
         e.logged_intake_kcal_per_day,
     );
     push(

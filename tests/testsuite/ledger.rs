@@ -1794,6 +1794,64 @@ fn a_month_run_again_with_a_changed_printed_figure_is_a_new_release() {
     );
 }
 
+/// The adherence medians across monthly releases (the sample program, May to September, one
+/// ledger): a median that moved from one printed before with fewer than min people's values is
+/// withheld (Harbour Depot's attendance median in June: of its 14 people, fewer than 11 had
+/// another attendance than in May; it was printed as 70 % beside May's), and one over exactly the
+/// values of one printed before is printed again (September's whole-program attendance median is
+/// August's: no session was held in September; it was withheld when August's sites had been).
+#[test]
+fn adherence_medians_are_audited_across_monthly_releases() {
+    let t = ProgramTest::sample();
+    let mut months = Vec::new();
+    for m in ["05", "06", "07", "08", "09"] {
+        let period = format!("2026-{m}");
+        let o = t.run(&[
+            "run",
+            "{dir}",
+            "--period",
+            &period,
+            "--as-of",
+            "2026-10-05",
+            "--formats",
+            "html",
+        ]);
+        assert!(o.code <= 4, "{o:?}");
+        let g: serde_json::Value = serde_json::from_slice(
+            &std::fs::read(t.dir.join("reports/metrics/group.json")).unwrap(),
+        )
+        .unwrap();
+        months.push(g);
+    }
+    let attendance = |g: &serde_json::Value, label: &str| {
+        let section = if label == "Whole program" {
+            &g["program"]
+        } else {
+            g["splits"][0]["sections"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .find(|s| s["label"] == label)
+                .unwrap()
+        };
+        section["stats"]["adherence"]["attendance_to_date_percent"]["median"].clone()
+    };
+    let (may, june, august, september) = (&months[0], &months[1], &months[3], &months[4]);
+    assert!(attendance(may, "Harbour Depot").get("value").is_some());
+    assert_eq!(
+        attendance(june, "Harbour Depot"),
+        serde_json::json!({"suppressed": true})
+    );
+    let notes = june["audit"].to_string();
+    assert!(
+        notes.contains("Harbour Depot") && notes.contains("median session attendance"),
+        "{notes}"
+    );
+    let program = attendance(august, "Whole program");
+    assert!(program.get("value").is_some(), "{program}");
+    assert_eq!(attendance(september, "Whole program"), program);
+}
+
 /// A consent withdrawal recorded in a profile months after its day: June's and July's reports
 /// were released with the person still in the program, and no run said so (only `check` listed
 /// the rows after the withdrawal; a later month's run left them out silently). Now the first

@@ -922,7 +922,11 @@ fn current_state(
     };
     let rmr = p.rmr_at(bw, to);
     let activity = p.activity_kcal(period_from, to, bw);
-    let (logged_mean, logged_days) = p.logged(period_from, to);
+    // The logged intake over the window of the implied intake, so that their difference (the
+    // intake gap, the logs-versus-trend flag) compares like with like: over a period of the
+    // whole program the logs' mean of 180 days stood beside an implied intake of the last 28
+    // (a gap of +1,691 kcal/d where the month's report read +1,400).
+    let (logged_mean, logged_days) = p.logged(window_from, to);
     let logged = logged_mean.filter(|_| logged_days >= MIN_LOGGED_DAYS);
     let met_h_window = p.activity_met_hours(window_from, to);
     // Implied intake over the window with every source of uncertainty: the baseline
@@ -972,7 +976,7 @@ fn current_state(
     };
     // Under-reporting: the person's own share from every block of logs and trend (the joint
     // posterior); without such blocks, the share missing from the window's logs.
-    let (logged_window, logged_window_days) = p.logged(window_from, to);
+    let (logged_window, logged_window_days) = (logged_mean, logged_days);
     let underreport = match (baseline.underreport, implied, logged_window) {
         (Some((m, l, u)), Some(_), _) => Some(Band {
             value: 100.0 * m,

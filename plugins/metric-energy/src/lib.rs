@@ -208,13 +208,13 @@ impl MetricModule for EnergyModule {
                 "logged_intake_kcal_per_day",
                 "scalar",
                 "kcal/d",
-                "Mean logged intake over logged days (missing with fewer than 4)",
+                "Mean logged intake over the logged days of the implied intake's window (the last window_days of the period; missing with fewer than 4)",
             ),
             OutputSpec::new(
                 "logged_days",
                 "scalar",
                 "d",
-                "Days with an intake log in the period",
+                "Days with an intake log in the implied intake's window (the last window_days of the period)",
             )
             .counted(),
             OutputSpec::new(
