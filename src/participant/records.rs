@@ -11,7 +11,7 @@ use super::quantity::{
 };
 use super::table::{
     Cells, CsvOptions, Dropped, FileCtx, LocalZone, SUMMARY_LABELS, Table, When, header_key,
-    is_label, read_table,
+    is_label, numeric_date_after, read_table,
 };
 use crate::activities;
 use crate::diag::{Diagnostic, Severity};
@@ -203,9 +203,16 @@ fn parse_rows<T>(
         };
         let before = diags.len();
         let when = cells.when("date", diags);
-        if let (Some(x), Some(wn)) = (consent_withdrawn, when)
-            && wn.date > x
-        {
+        // A numeric date no order was found for (a withdrawal near the start left no row
+        // before it that tells, in a file of ISO dates too) that lies after the withdrawal in
+        // every reading: not read, not warned about as unreadable (which quoted it).
+        let after = |x: NaiveDate| match when {
+            Some(wn) => wn.date > x,
+            None => table
+                .get(row, "date")
+                .is_some_and(|s| numeric_date_after(s, opts, x)),
+        };
+        if consent_withdrawn.is_some_and(after) {
             diags.truncate(before);
             ctx.uncount_row();
             after_consent.push(row.line);

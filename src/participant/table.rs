@@ -744,8 +744,8 @@ pub fn read_table(
         {
             Ok((serial, order)) => {
                 table.serial_dates = serial;
-                table.numeric_order = order.as_ref().map(|(o, _, _)| *o);
-                table.numeric_example = order.map(|(_, s, d)| (s, d));
+                table.numeric_order = order.as_ref().map(|(o, _)| *o);
+                table.numeric_example = order.and_then(|(_, example)| example);
                 Some(table)
             }
             Err(d) => {
@@ -3171,6 +3171,10 @@ impl NumericOrder {
     }
 }
 
+/// The order of a file's numeric dates, and the file's own date that tells it (none when every
+/// numeric date of the file lies after a withdrawal of consent: none of them is quoted).
+type NumericReading = (NumericOrder, Option<(String, NaiveDate)>);
+
 /// The first number, the second, the last (the year unless year first), the separator of a
 /// numeric date, and whether the last was written with one or two digits (`05/01/26`).
 type NumericParts = (u32, u32, i32, char, bool);
@@ -3229,6 +3233,22 @@ fn numeric_parts(s: &str) -> Option<NumericParts> {
     ))
 }
 
+/// Whether `s`, a numeric date such as `14/04/2026` that no order found for its file reads,
+/// lies after `x` in every reading of it (day, month or year first; none, when no reading
+/// places it): the row is dated after a withdrawal of consent on `x` whatever the order, and
+/// is not read, as a row whose date reads after it. Only with the default `input.date_format`
+/// (numeric dates are read by their order only then).
+pub(crate) fn numeric_date_after(s: &str, opts: &CsvOptions, x: NaiveDate) -> bool {
+    opts.date_format == "%Y-%m-%d"
+        && numeric_parts(s).is_some_and(|p| {
+            let mut readings = NumericOrder::ALL
+                .iter()
+                .filter_map(|o| place(p, *o, opts.program_span))
+                .peekable();
+            readings.peek().is_some() && readings.all(|d| d > x)
+        })
+}
+
 /// The order of a file's numeric dates (see [`NumericOrder`]): the one that reads every one of
 /// them as a real date, when only one does (a date such as `13/05/2026` tells). When both do
 /// (every day is the 12th or before), the dates cannot be read without a guess and the file is
@@ -3237,36 +3257,52 @@ fn numeric_order(
     table: &Table,
     opts: &CsvOptions,
     ctx: &FileCtx,
-) -> Result<Option<(NumericOrder, String, NaiveDate)>, Box<Diagnostic>> {
+) -> Result<Option<NumericReading>, Box<Diagnostic>> {
     if opts.date_format != "%Y-%m-%d" {
         return Ok(None);
     }
     let span = opts.program_span;
-    // A row that may be dated after a withdrawal of consent (in some reading of its date) is
-    // not read, so it does not decide how the rows before it are read either: one synced
-    // weigh-in on `13/11/2026` told the order of a whole file of earlier dates that did not.
-    let may_be_after_consent = |s: &str| {
+    // A row dated after a withdrawal of consent in every reading of its date is not read,
+    // whatever the order, so it does not decide how the rows before it are read either: one
+    // synced weigh-in on `13/11/2026` told the order of a whole file of earlier dates that did
+    // not. A row that some reading puts on or before the withdrawal may be one of the person's
+    // own, and takes part as it would had the later rows never been synced (taking it out too
+    // turned a withdrawal near the start into no date to decide by, and the file's rows, those
+    // after the withdrawal among them, were each warned about as unreadable, quoted).
+    let after_consent = |s: &str| {
         ctx.consent_withdrawn
             .is_some_and(|x| match parse_when(s, opts) {
                 Some(w) => w.date > x,
-                None => numeric_parts(s).is_some_and(|p| {
-                    NumericOrder::ALL
-                        .iter()
-                        .any(|o| place(p, *o, span).is_some_and(|d| d > x))
-                }),
+                None => numeric_date_after(s, opts, x),
             })
     };
-    let dates: Vec<(&Row, &str, NumericParts)> = table
+    let numeric: Vec<(&Row, &str, NumericParts)> = table
         .rows
         .iter()
         .filter_map(|r| {
             let s = table.get(r, "date")?;
             Some((r, s, numeric_parts(s)?))
         })
-        .filter(|(_, s, _)| parse_when(s, opts).is_none() && !may_be_after_consent(s))
+        .filter(|(_, s, _)| parse_when(s, opts).is_none())
+        .collect();
+    let dates: Vec<(&Row, &str, NumericParts)> = numeric
+        .iter()
+        .filter(|(_, s, _)| !after_consent(s))
+        .copied()
         .collect();
     let Some(&(first_row, first, _)) = dates.first() else {
-        return Ok(None);
+        // Every numeric date lies after the withdrawal in each of its readings: an order that
+        // reads them all lets the rows be left out as dated after it, like ISO-dated ones,
+        // instead of each being warned about (and quoted) as an unreadable date. No date of
+        // theirs is given as the example of the order.
+        return Ok(NumericOrder::ALL
+            .into_iter()
+            .find(|o| {
+                numeric
+                    .iter()
+                    .all(|(_, _, p)| place(*p, *o, span).is_some())
+            })
+            .map(|o| (o, None)));
     };
     // The orders that read every such date; orders that give every one the same date (`05/05/26`
     // either way, `26-05-26` year or day first in 2026) are one reading.
@@ -3291,11 +3327,7 @@ fn numeric_order(
     let dated = table
         .rows
         .iter()
-        .filter(|r| {
-            table
-                .get(r, "date")
-                .is_some_and(|s| !may_be_after_consent(s))
-        })
+        .filter(|r| table.get(r, "date").is_some_and(|s| !after_consent(s)))
         .count();
     let short = dates.iter().any(|(_, _, p)| p.4);
     let within = match span {
@@ -3319,7 +3351,7 @@ fn numeric_order(
                 })
                 .unwrap_or(&dates[0]);
             let date = at(*parts, *one).expect("the one order reads every such date");
-            Ok(Some((*one, (*written).to_string(), date)))
+            Ok(Some((*one, Some(((*written).to_string(), date)))))
         }
         // Two-digit years that no one order puts within the program, in a file of such dates:
         // which dates they are cannot be told, and dropping every row one by one would hide
@@ -5670,6 +5702,51 @@ mod tests {
         // Withdrawn after 13 November: the row is read, and tells.
         let (t, diags) = read_with(Some(d("2026-11-30")));
         assert!(t.is_some() && diags.is_empty(), "{diags:?}");
+    }
+
+    /// A withdrawal near the start: `05/04/2026` is 5 April read day first, on or before a
+    /// withdrawal on 12 April, and 4 May read month first. A row that only one reading puts
+    /// after the withdrawal may be the person's own, and decides as it would had the later rows
+    /// never been synced. Taking out every row that some reading put after it left no date to
+    /// decide by: the file's rows were each warned about as an unreadable date, those of 14
+    /// and 20 April (after the withdrawal in every reading) quoted among them. And a file whose
+    /// every date lies after the withdrawal (a lab result synced in August) is read in an order
+    /// that reads them, so its rows are left out as after the withdrawal, not warned about.
+    #[test]
+    fn a_withdrawal_near_the_start_leaves_the_file_as_if_later_rows_were_never_synced() {
+        let d = |s: &str| NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap();
+        let opts = CsvOptions::default();
+        let read_with = |text: &str, withdrew: &str| {
+            let ctx = FileCtx::new("P1", "participants/P1/weights.csv")
+                .with_consent_withdrawn(Some(d(withdrew)));
+            let mut diags = Vec::new();
+            let t = read_table(text, &SPEC, &opts, &ctx, &mut diags);
+            (t, diags)
+        };
+        let before = "date,weight,unit\n05/04/2026,90,kg\n07/04/2026,89.8,kg\n09/04/2026,89.5,kg\n";
+        let synced = format!("{before}14/04/2026,89,kg\n20/04/2026,88.8,kg\n");
+        let (t, alone) = read_with(before, "2026-04-12");
+        assert!(t.is_none());
+        assert_eq!((alone[0].line, alone[0].column), (Some(2), Some(1)));
+        assert!(
+            alone[0].message.contains("day or its month comes first"),
+            "{}",
+            alone[0]
+        );
+        // The same file with two rows after the withdrawal: the same refusal, word for word,
+        // and nothing after 12 April quoted.
+        let (t, diags) = read_with(&synced, "2026-04-12");
+        assert!(t.is_none());
+        let said = |v: &[Diagnostic]| v.iter().map(|x| x.to_string()).collect::<Vec<_>>();
+        assert_eq!(said(&diags), said(&alone));
+        // Only rows after the withdrawal: an order is found to read them, and no date of
+        // theirs is given as its example.
+        let text = "date,weight,unit\n15/08/2026,88,kg\n20/09/2026,87.5,kg\n";
+        let (t, diags) = read_with(text, "2026-07-27");
+        assert!(diags.is_empty(), "{diags:?}");
+        let t = t.expect("read");
+        assert_eq!(t.numeric_order, Some(NumericOrder::DayFirst));
+        assert_eq!(t.numeric_example, None);
     }
 
     /// `05/01/26`: a two-digit year, in a program of 2026. Such dates were dropped row by row

@@ -1174,8 +1174,8 @@ fn trajectory_table(
     }
 }
 
-/// Milestones: reached on the first weigh-in day on or after the first day the trend level is
-/// at or below the threshold weight.
+/// Milestones: reached on the first weigh-in day on which the trend level is at or below the
+/// threshold weight.
 ///
 /// # Remarks
 /// The trend's crossing day alone read more precise than the records are: someone weighed on
@@ -1183,21 +1183,30 @@ fn trajectory_table(
 /// across 102 days without a weigh-in. The weigh-in that showed the loss dates it (for a daily
 /// weigher, the same day or the next); a crossing after the last weigh-in is a projection of the
 /// trend, not a milestone reached. `weigh_in_days` is sorted.
+///
+/// The first weigh-in on or after the crossing is not always one that showed it: a smoothed
+/// trend drawn across a gap carries its slope on and comes back (weighed down to 97.3 kg of 100
+/// by 15 April, then at 97.45 from 1 June, the trend went to 96.4 in between), and the
+/// report read "3 % loss · reached 1 Jun 2026" for a weigh-in at which neither the trend nor
+/// the scale was below 97 kg. On a weigh-in day the trend is at or below the threshold, or the
+/// milestone is not reached; when the trend stays below after crossing, this is the first
+/// weigh-in on or after the crossing, as before.
 fn milestones_table(
     w0: Option<f64>,
     levels: &[(NaiveDate, f64)],
     weigh_in_days: &[NaiveDate],
 ) -> Table {
+    let level_on: BTreeMap<NaiveDate, f64> = levels.iter().copied().collect();
     let rows = MILESTONES_PERCENT
         .into_iter()
         .map(|t| {
             let threshold = w0.map(|w0| w0 - w0 * t / 100.0);
-            let reached = threshold
-                .and_then(|thr| levels.iter().find(|(_, l)| *l <= thr + CUT_EPS))
-                .and_then(|&(crossed, _)| {
-                    let i = weigh_in_days.partition_point(|d| *d < crossed);
-                    weigh_in_days.get(i).copied()
-                });
+            let reached = threshold.and_then(|thr| {
+                weigh_in_days
+                    .iter()
+                    .copied()
+                    .find(|d| level_on.get(d).is_some_and(|l| *l <= thr + CUT_EPS))
+            });
             MilestoneRow {
                 threshold_percent: t,
                 threshold_weight_kg: threshold,
@@ -1811,6 +1820,60 @@ mod tests {
 
     fn d(s: &str) -> NaiveDate {
         s.parse().unwrap()
+    }
+
+    /// A trend drawn across a gap in the weigh-ins can dip below a milestone and come back:
+    /// weighed down to 97.3 kg of 100 by 15 April, then at 97.45 from 1 June, and the trend
+    /// at 96.4 in May. "3 % loss · reached 1 Jun" named a weigh-in at which neither the trend
+    /// nor the scale was below 97 kg. A milestone is reached on a weigh-in day on which the
+    /// trend is at or below it; when the trend stays below, that is the first weigh-in on or
+    /// after the crossing.
+    #[test]
+    fn a_milestone_is_reached_on_a_weigh_in_day_with_the_trend_below_it() {
+        let days = |from: &str, to: &str| {
+            let (from, to) = (d(from), d(to));
+            from.iter_days().take_while(move |x| *x <= to)
+        };
+        // 100 kg on 1 April, down 0.2 kg a day to 96.4 on 19 April, flat to 19 May, back up
+        // 0.1 kg a day to 97.4 on 29 May, flat after.
+        let level = |x: NaiveDate| {
+            let n = (x - d("2026-04-01")).num_days() as f64;
+            match n {
+                n if n <= 18.0 => 100.0 - 0.2 * n,
+                n if n <= 48.0 => 96.4,
+                n if n <= 58.0 => 96.4 + 0.1 * (n - 48.0),
+                _ => 97.4,
+            }
+        };
+        let levels: Vec<(NaiveDate, f64)> = days("2026-04-01", "2026-06-30")
+            .map(|x| (x, level(x)))
+            .collect();
+        let reached = |weigh_ins: &[&str]| -> Vec<Option<NaiveDate>> {
+            let weigh_ins: Vec<NaiveDate> = weigh_ins.iter().map(|s| d(s)).collect();
+            let t = milestones_table(Some(100.0), &levels, &weigh_ins);
+            t.rows
+                .iter()
+                .map(|r| match &r[3] {
+                    cohortpress_metric_api::Cell::Text(s) => Some(d(s)),
+                    _ => None,
+                })
+                .collect()
+        };
+        // Weighed on 1, 8 and 15 April, then from 1 June: the trend crossed 97 kg on 17 April
+        // and was back above it by 26 May. No weigh-in showed 3 %.
+        let sparse = [
+            "2026-04-01",
+            "2026-04-08",
+            "2026-04-15",
+            "2026-06-01",
+            "2026-06-08",
+        ];
+        assert_eq!(reached(&sparse), [None, None, None, None]);
+        // Weighed on 20 April as well: reached that day (the first weigh-in after crossing).
+        let mut with = sparse.to_vec();
+        with.insert(3, "2026-04-20");
+        assert_eq!(reached(&with)[0], Some(d("2026-04-20")));
+        assert_eq!(reached(&with)[1..], [None, None, None]);
     }
 
     /// A waist without a recorded sex gets no risk class: 85 cm is "increased risk" for a woman

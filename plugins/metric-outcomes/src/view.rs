@@ -200,7 +200,7 @@ pub struct MilestoneRow {
     pub threshold_weight_kg: Option<f64>,
     /// Reached?
     pub reached: bool,
-    /// The first weigh-in day on or after the first day the trend was at or below it.
+    /// The first weigh-in day on which the trend was at or below it.
     pub date_reached: Option<NaiveDate>,
 }
 

@@ -3656,3 +3656,44 @@ fn rows_after_withdrawn_consent_do_not_decide_how_durations_are_read() {
     assert_eq!(v.len(), 3, "{diags:#?}");
     assert_eq!(v[1].minutes, 1.5);
 }
+
+/// A withdrawal of consent near the start, in a file of ISO and numeric dates: the numeric
+/// dates before it (`05/04/2026`, 5 April or 4 May) tell no order and are warned about one by
+/// one, as they would be had nothing been synced after it. `14/04/2026` is after the
+/// withdrawal on 12 April in every reading: it was warned about as an unreadable date too, its
+/// date quoted (in the log and data-quality.csv, every month), where every other row after the
+/// withdrawal is left out unread with the one warning that rows after it are there.
+#[test]
+fn a_numeric_date_after_a_withdrawal_in_every_reading_is_not_read() {
+    let text = "date,weight,unit\n2026-04-01,90.2,kg\n05/04/2026,90,kg\n07/04/2026,89.8,kg\n\
+                2026-04-10,89.6,kg\n14/04/2026,89,kg\n2026-04-20,88.5,kg\n";
+    let x = d(2026, 4, 12);
+    let w = Window {
+        withdrew: Some(x),
+        ..window()
+    };
+    let c = ctx("weights.csv").with_consent_withdrawn(Some(x));
+    let mut diags = Vec::new();
+    let out = parse_weights(text, &CsvOptions::default(), &c, &w, &mut diags).expect("usable");
+    let dates: Vec<_> = out.iter().map(|x| x.date).collect();
+    assert_eq!(dates, [d(2026, 4, 1), d(2026, 4, 10)]);
+    let said: Vec<_> = diags.iter().map(|x| (x.line, x.message.as_str())).collect();
+    assert_eq!(
+        said,
+        [
+            (Some(3), "unreadable date; the row is dropped"),
+            (Some(4), "unreadable date; the row is dropped"),
+            (
+                Some(6),
+                "rows dated after consent was withdrawn (2026-04-12) are not read: stop what adds them, remove them"
+            ),
+        ],
+        "{diags:#?}"
+    );
+    assert!(
+        diags.iter().all(|x| !x.to_string().contains("14/04")),
+        "{diags:#?}"
+    );
+    // The rows after the withdrawal are not counted among the file's rows either.
+    assert_eq!(c.rows_in_file(), 4);
+}
