@@ -1763,25 +1763,7 @@ fn a_month_run_again_with_a_changed_printed_figure_is_a_new_release() {
         std::fs::read_to_string(t.dir.join("reports/group/program.html")).unwrap()
     };
     let first = run();
-    for i in 1..=40 {
-        let p = t.dir.join(format!("participants/SG-{i:03}/activity.csv"));
-        let Ok(text) = std::fs::read_to_string(&p) else {
-            continue;
-        };
-        let fixed: Vec<String> = text
-            .lines()
-            .map(|l| {
-                let mut f: Vec<String> = l.split(',').map(str::to_string).collect();
-                if f[0].starts_with("2026-09")
-                    && let Ok(m) = f[2].parse::<f64>()
-                {
-                    f[2] = format!("{}", m * 3.0);
-                }
-                f.join(",")
-            })
-            .collect();
-        std::fs::write(&p, fixed.join("\n") + "\n").unwrap();
-    }
+    triple_september_activity(&t, 40);
     let again = run();
     assert_ne!(first, again, "the fix changes a printed figure");
     let ledger: serde_json::Value =
@@ -1957,7 +1939,15 @@ fn the_same_month_run_on_another_day_records_no_second_release() {
         vec![("2026-09-01".to_string(), "2026-11-02".to_string(), true)]
     );
     // 40 people's September activity minutes tripled change a printed median: a new release.
-    for i in 1..=40 {
+    triple_september_activity(&t, 40);
+    run("2027-02-02");
+    assert_eq!(releases().len(), 2, "{:?}", releases());
+}
+
+/// Triples the September activity minutes of the first `n` participants of a demo program (a
+/// file fix that changes a printed median and no count).
+fn triple_september_activity(t: &ProgramTest, n: usize) {
+    for i in 1..=n {
         let p = t.dir.join(format!("participants/SG-{i:03}/activity.csv"));
         let Ok(text) = std::fs::read_to_string(&p) else {
             continue;
@@ -1976,6 +1966,4 @@ fn the_same_month_run_on_another_day_records_no_second_release() {
             .collect();
         std::fs::write(&p, fixed.join("\n") + "\n").unwrap();
     }
-    run("2027-02-02");
-    assert_eq!(releases().len(), 2, "{:?}", releases());
 }
