@@ -1320,8 +1320,15 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     // the report printed the request among the plain notices, not under "For review with a
     // licensed clinician"): for someone heavier now, a usual diet held for good ends below BMI
     // 18.5, and the notice says that intake is eased as weight nears its goal.
-    const EASED: &str = "Losing that far is not a goal: intake is usually raised towards \
-                         maintenance as weight nears its target.";
+    // Someone of healthy weight now has no loss target to near (review: the notice spoke of
+    // one): for them, losing more is not a goal at all.
+    let eased = if fc.healthy_now {
+        "Losing more is not a goal at a healthy weight: intake is usually raised to what keeps \
+         the weight steady."
+    } else {
+        "Losing that far is not a goal: intake is usually raised towards maintenance as weight \
+         nears its target."
+    };
     if crosses.is_none()
         && let Some(w) = rest
         && w < fc.severe_kg
@@ -1333,7 +1340,7 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
                  clinician.",
             )
         } else {
-            (FlagSeverity::Notice, EASED)
+            (FlagSeverity::Notice, eased)
         };
         out.push_flag(
             EnergyFlag::ForecastUnderweight.as_str(),
@@ -1356,7 +1363,7 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
         (None, Some(w)) => format!(
             "If eating goes on as over the last weeks for good, the model expects weight to \
              settle in the end at about {w:.0} kg, a BMI below 18.5, the underweight range \
-             (WHO). {EASED}"
+             (WHO). {eased}"
         ),
         (None, None) => return,
     };

@@ -1103,6 +1103,7 @@ fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
     // Every forecast flag: clinical exactly when it asks for a licensed clinician, and the
     // runs above give both kinds, including a resting weight between BMI 16 and 18.5.
     let mut kinds = Vec::new();
+    let mut healthy_notices = 0;
     for (start, per_week) in [
         (60.0, 0.5),
         (60.0, 0.7),
@@ -1112,6 +1113,9 @@ fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
         (95.0, 0.7),
         (90.0, 0.6),
         (95.0, 0.6),
+        (60.0, 0.2),
+        (58.0, 0.25),
+        (56.0, 0.2),
         (100.0, 0.65),
         (50.0, 0.4),
     ] {
@@ -1122,8 +1126,19 @@ fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
                 "{start} kg, {per_week} kg/week: {severity:?} {message}"
             );
             kinds.push((severity, message.contains("settle in the end at about")));
+            // Someone of healthy weight now (below BMI 25 at 1.65 m, 68 kg) has no loss target
+            // to near; the notice said intake is raised "as weight nears its target".
+            if severity == FlagSeverity::Notice && start < 68.0 {
+                assert!(
+                    message.contains("not a goal at a healthy weight")
+                        && !message.contains("target"),
+                    "{start} kg: {message}"
+                );
+                healthy_notices += 1;
+            }
         }
     }
+    assert!(healthy_notices >= 1, "{kinds:?}");
     assert!(kinds.contains(&(FlagSeverity::Notice, true)), "{kinds:?}");
     assert!(
         kinds
