@@ -363,11 +363,12 @@ pub fn build(
     // Weigh-ins on one day only: that day's mean is both the starting weight and the last one,
     // so no change has been measured (one weigh-in in June 2025, November 2026's report read
     // "Since you started: 0.0 kg", as if the weight had held for 18 months).
-    let change_measured = {
+    let weigh_days = {
         let mut days = crate::modules::run::weigh_in_days(data, plan.period.to);
         days.dedup();
-        days.len() != 1
+        days
     };
+    let change_measured = weigh_days.len() != 1;
     let ctx = ParticipantReportContext {
         program: super::ProgramView::new(plan),
         participant: PersonView {
@@ -398,6 +399,10 @@ pub fn build(
                 }
             }),
             !data.weights.iter().any(|w| w.date <= plan.period.to),
+            {
+                let from = plan.period.to - chrono::Duration::days(27);
+                weigh_days.iter().filter(|d| **d >= from).count()
+            },
         ),
         summary: summary(
             &v,
@@ -857,6 +862,13 @@ fn extra_modules(results: &ModuleResults) -> Vec<ExtraView> {
         .collect()
 }
 
+/// Weigh-in days in the last four weeks below which a level trend is said to rest mostly on
+/// the weeks before ([`headline`]; program choice: one a week).
+const MIN_RECENT_WEIGH_IN_DAYS: usize = 4;
+
+// Each argument is one fact about the person the opening sentence depends on; a struct of them
+// would be built in one place and taken apart in the next.
+#[allow(clippy::too_many_arguments)]
 fn headline(
     trend: Option<&TrendView>,
     outcomes: Option<&OutcomesView>,
@@ -868,6 +880,8 @@ fn headline(
     weighs_in_enough: bool,
     // No weigh-in up to the period's end at all (a food and activity log only).
     no_weigh_in: bool,
+    // Days with a weigh-in in the period's last 28 days.
+    recent_weigh_in_days: usize,
 ) -> String {
     let status = trend.map_or(Status::InsufficientData, |t| t.status);
     let rate = trend.and_then(|t| t.slope_kg_per_week.value);
@@ -951,6 +965,22 @@ fn headline(
             }
             None => "There are too few recent weigh-ins to see how your weight moved over the last four weeks.".to_string(),
         },
+    };
+    // A level or slowly moving trend read from fewer weigh-ins than one a week in the last four
+    // weeks rests mostly on the weeks before (the trend carries them forward): "held steady
+    // over the last four weeks" stood on one clinic weigh-in (a trial participant, May 2026).
+    // Program choice: one a week.
+    let lead = if matches!(status, Status::Plateau | Status::Stable)
+        && recent_weigh_in_days < MIN_RECENT_WEIGH_IN_DAYS
+    {
+        let n = match recent_weigh_in_days {
+            0 => "no weigh-in".to_string(),
+            1 => "one weigh-in".to_string(),
+            k => format!("{k} weigh-ins"),
+        };
+        format!("{lead} With {n} in the last four weeks, this rests mostly on the weeks before.")
+    } else {
+        lead
     };
     // A rise from the lowest trend weight confirmed by level is named whatever the last four
     // weeks' slope says (a sparse weigher's regain is otherwise invisible here).
@@ -2403,6 +2433,65 @@ mod activity_unread_tests {
         assert_eq!(lab_number(G, 7.0, "mmol/L"), "7.0");
     }
 
+    /// "Held steady over the last four weeks" stood on one clinic weigh-in in those weeks (a
+    /// trial participant, May 2026: last home weigh-in 29 Mar, a clinic one on 31 May): with
+    /// fewer than one weigh-in a week there, the headline says the reading rests mostly on the
+    /// weeks before.
+    #[test]
+    fn a_level_trend_from_few_recent_weigh_ins_says_so() {
+        let t = TrendView {
+            status: Status::Plateau,
+            ..TrendView::default()
+        };
+        let h = |n: usize| {
+            headline(
+                Some(&t),
+                None,
+                UnitSystem::Metric,
+                None,
+                None,
+                false,
+                false,
+                n,
+            )
+        };
+        assert_eq!(
+            h(1),
+            "Your weight has held steady over the last four weeks (a plateau). With one weigh-in \
+             in the last four weeks, this rests mostly on the weeks before."
+        );
+        assert!(
+            h(0).contains("With no weigh-in in the last four weeks"),
+            "{}",
+            h(0)
+        );
+        assert!(
+            h(3).contains("With 3 weigh-ins in the last four weeks"),
+            "{}",
+            h(3)
+        );
+        assert_eq!(
+            h(4),
+            "Your weight has held steady over the last four weeks (a plateau)."
+        );
+        // A loss is not qualified: its slope's interval is the evidence.
+        let losing = TrendView {
+            status: Status::Losing,
+            ..TrendView::default()
+        };
+        let l = headline(
+            Some(&losing),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            1,
+        );
+        assert!(!l.contains("rests mostly"), "{l}");
+    }
+
     /// A trend too close to the plateau band's edge to call: "more regular weigh-ins" is advice
     /// only for someone who weighs in less than asked (a participant weighing in 4.4 times a
     /// week against a target of 3 read it, in July, losing about 0.15 kg a week).
@@ -2413,13 +2502,31 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-0.15);
-        let sparse = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let sparse = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             sparse,
             "Your weight has changed little over the last four weeks (about −0.15 kg/week); more \
              regular weigh-ins would show whether it has levelled off."
         );
-        let regular = headline(Some(&t), None, UnitSystem::Metric, None, None, true, false);
+        let regular = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            true,
+            false,
+            20,
+        );
         assert_eq!(
             regular,
             "Your weight has changed little over the last four weeks (about −0.15 kg/week), too \
@@ -2436,7 +2543,16 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-1.32);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             h,
             "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
@@ -2449,6 +2565,7 @@ mod activity_unread_tests {
             None,
             false,
             false,
+            20,
         );
         assert!(h.contains("by about 2.91 lb/week"), "{h}");
     }
@@ -2468,7 +2585,16 @@ mod activity_unread_tests {
             lower: Some(3.82),
             upper: Some(6.75),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             h,
             "There are too few recent weigh-ins to see how your weight moved over the last four \
@@ -2494,13 +2620,31 @@ mod activity_unread_tests {
         assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
         // Not confirmed by the level test: nothing is said of a rise.
         t.regain_verdict = Some(RegainVerdict::NotRegaining);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert!(!h.contains("lowest point"), "{h}");
         // A rising slope already says so; the level sentence is not repeated.
         t.regain_verdict = Some(RegainVerdict::Regaining);
         t.status = Status::Regaining;
         t.slope_kg_per_week.value = Some(0.3);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert!(!h.contains("lowest point"), "{h}");
     }
 
@@ -2552,13 +2696,31 @@ mod activity_unread_tests {
             lower: Some(0.02),
             upper: Some(0.35),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             h,
             "Your weight has edged up over the last four weeks (+0.19 kg/week), slowly enough to count as a plateau."
         );
         t.status = Status::Stable;
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             h,
             "Your weight has been nearly stable over the last four weeks, edging up slowly (+0.19 kg/week)."
@@ -2566,7 +2728,16 @@ mod activity_unread_tests {
         // An interval that reaches zero: held steady, as before.
         t.status = Status::Plateau;
         t.slope_kg_per_week.lower = Some(-0.02);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
@@ -2587,20 +2758,47 @@ mod activity_unread_tests {
             lower: Some(-0.50),
             upper: Some(-0.28),
         };
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             h,
             "Your weight has edged down over the last four weeks (−0.39 kg/week), slowly enough to count as a plateau."
         );
         t.status = Status::Stable;
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             h,
             "Your weight has been nearly stable over the last four weeks, edging down slowly (−0.39 kg/week)."
         );
         t.status = Status::Plateau;
         t.slope_kg_per_week.upper = Some(0.02);
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
@@ -2974,15 +3172,34 @@ mod activity_unread_tests {
             Some(joined),
             false,
             false,
+            20,
         );
         assert_eq!(
             h,
             "You joined on 20 Apr 2026, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it."
         );
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, false);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        );
         assert!(h.starts_with("There are too few recent weigh-ins"), "{h}");
         // None at all: not "too few".
-        let h = headline(Some(&t), None, UnitSystem::Metric, None, None, false, true);
+        let h = headline(
+            Some(&t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            true,
+            20,
+        );
         assert!(h.starts_with("No weigh-in is recorded yet"), "{h}");
     }
 
