@@ -2007,6 +2007,22 @@ fn adherence_section(
 mod activity_unread_tests {
     use super::*;
 
+    /// The headline of a person with no outcomes, in metric units, who has not left or just
+    /// joined, weighs in less than asked, has weighed in, and has 20 weigh-in days in the last
+    /// 28: what most headline tests vary nothing of but the trend.
+    fn plain_headline(t: &TrendView) -> String {
+        headline(
+            Some(t),
+            None,
+            UnitSystem::Metric,
+            None,
+            None,
+            false,
+            false,
+            20,
+        )
+    }
+
     /// Period counts over `n` days (what the module gives the report), nothing counted.
     fn days(n: i64) -> PeriodCounts {
         PeriodCounts {
@@ -2502,16 +2518,7 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-0.15);
-        let sparse = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let sparse = plain_headline(&t);
         assert_eq!(
             sparse,
             "Your weight has changed little over the last four weeks (about −0.15 kg/week); more \
@@ -2543,16 +2550,7 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-1.32);
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert_eq!(
             h,
             "Your weight trend is going down, by about 1.32 kg/week over the last four weeks."
@@ -2585,16 +2583,7 @@ mod activity_unread_tests {
             lower: Some(3.82),
             upper: Some(6.75),
         };
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert_eq!(
             h,
             "There are too few recent weigh-ins to see how your weight moved over the last four \
@@ -2620,31 +2609,13 @@ mod activity_unread_tests {
         assert_eq!(row.value, "+5.3 kg (95 % range 3.8 to 6.8 kg)");
         // Not confirmed by the level test: nothing is said of a rise.
         t.regain_verdict = Some(RegainVerdict::NotRegaining);
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert!(!h.contains("lowest point"), "{h}");
         // A rising slope already says so; the level sentence is not repeated.
         t.regain_verdict = Some(RegainVerdict::Regaining);
         t.status = Status::Regaining;
         t.slope_kg_per_week.value = Some(0.3);
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert!(!h.contains("lowest point"), "{h}");
     }
 
@@ -2696,31 +2667,13 @@ mod activity_unread_tests {
             lower: Some(0.02),
             upper: Some(0.35),
         };
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert_eq!(
             h,
             "Your weight has edged up over the last four weeks (+0.19 kg/week), slowly enough to count as a plateau."
         );
         t.status = Status::Stable;
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert_eq!(
             h,
             "Your weight has been nearly stable over the last four weeks, edging up slowly (+0.19 kg/week)."
@@ -2728,16 +2681,7 @@ mod activity_unread_tests {
         // An interval that reaches zero: held steady, as before.
         t.status = Status::Plateau;
         t.slope_kg_per_week.lower = Some(-0.02);
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
@@ -2758,47 +2702,20 @@ mod activity_unread_tests {
             lower: Some(-0.50),
             upper: Some(-0.28),
         };
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert_eq!(
             h,
             "Your weight has edged down over the last four weeks (−0.39 kg/week), slowly enough to count as a plateau."
         );
         t.status = Status::Stable;
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert_eq!(
             h,
             "Your weight has been nearly stable over the last four weeks, edging down slowly (−0.39 kg/week)."
         );
         t.status = Status::Plateau;
         t.slope_kg_per_week.upper = Some(0.02);
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert_eq!(
             h,
             "Your weight has held steady over the last four weeks (a plateau)."
@@ -3178,16 +3095,7 @@ mod activity_unread_tests {
             h,
             "You joined on 20 Apr 2026, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it."
         );
-        let h = headline(
-            Some(&t),
-            None,
-            UnitSystem::Metric,
-            None,
-            None,
-            false,
-            false,
-            20,
-        );
+        let h = plain_headline(&t);
         assert!(h.starts_with("There are too few recent weigh-ins"), "{h}");
         // None at all: not "too few".
         let h = headline(
