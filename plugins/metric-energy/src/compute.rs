@@ -55,8 +55,11 @@ const Z_95: f64 = 1.959_963_984_540_054;
 const MIN_LOGGED_DAYS: usize = 4;
 /// Gap beyond which (whole 95 % interval) logs are called inconsistent with the trend, kcal/d.
 const GAP_FLAG_KCAL: f64 = 300.0;
-/// Walking cap of the options table, min/d (common practice).
-const MAX_WALK_MIN: f64 = 120.0;
+/// Default walking cap of the options table, min/d (setting `max_walk_minutes`; common
+/// practice: an hour a day is already 420 minutes a week, well past the WHO 2020 range of
+/// 150–300). The program passes its `guidance.max_walk_minutes` here, so the tidy options and
+/// the report's guidance call the same walks feasible.
+pub(crate) const MAX_WALK_MIN: f64 = 60.0;
 /// Half-width of the plateau band as a fraction of body weight per week (program
 /// configuration rather than a literature constant: no published plateau definition exists).
 const PLATEAU_BAND_FRACTION_PER_WEEK: f64 = 0.0025;
@@ -152,6 +155,7 @@ struct Settings {
     floor_male: f64,
     drift_threshold: f64,
     walking_met: f64,
+    max_walk_minutes: f64,
     forecast_min_days: i64,
 }
 
@@ -184,6 +188,7 @@ impl Settings {
             floor_male: ctx.setting_f64("intake_floor_male", 1500.0),
             drift_threshold: ctx.setting_f64("drift_threshold_kcal_per_day", 150.0),
             walking_met: ctx.setting_f64("walking_met", 3.5),
+            max_walk_minutes: ctx.setting_f64("max_walk_minutes", MAX_WALK_MIN),
             forecast_min_days: ctx.setting_f64("forecast_min_days", 84.0).round().max(0.0) as i64,
         })
     }
@@ -1690,12 +1695,13 @@ fn options_table(
     };
     let (feasible, reason) = if too_fast {
         (false, fast_reason)
-    } else if minutes > MAX_WALK_MIN {
+    } else if minutes > s.max_walk_minutes {
         (
             false,
             format!(
-                "It would take about {minutes:.0} minutes of walking a day, more than \
-                 {MAX_WALK_MIN:.0}; combine a shorter walk with a smaller change in intake."
+                "It would take about {minutes:.0} minutes of walking a day, more than {:.0}; \
+                 combine a shorter walk with a smaller change in intake.",
+                s.max_walk_minutes
             ),
         )
     } else if already {
@@ -1743,7 +1749,7 @@ fn options_table(
                  {floor:.0}"
             )
         };
-        let (feasible, reason) = if rest_minutes > MAX_WALK_MIN {
+        let (feasible, reason) = if rest_minutes > s.max_walk_minutes {
             (
                 false,
                 format!(
