@@ -124,10 +124,15 @@ pub(crate) const VERY_LOW_IMPLIED_INTAKE: f64 = 800.0;
 /// thinness).
 const MIN_STEADY_STATE_BMI: f64 = 16.0;
 /// Fall of the forecast's central path, kg, below the current weight of someone already
-/// underweight that raises `forecast_underweight`: a fall beyond a kilogram is more than a
-/// forecast's day-to-day wobble (program choice). Without it, a program that set the outcomes
-/// module's `underweight_bmi_below` lower (17, say) had no flag at all for a person at BMI 18
-/// whose forecast went on down to 16.
+/// underweight that raises `forecast_underweight` even when the trend cannot yet tell it from
+/// none: a kilogram is more than the weigh-ins' scatter (program choice). Without it, a program
+/// that set the outcomes module's `underweight_bmi_below` lower (17, say) had no flag at all for
+/// a person at BMI 18 whose forecast went on down to 16. A smaller fall raises it too when the
+/// trend is still falling (its slope's whole 95 % interval below zero): at BMI 17.6 and 0.2 kg a
+/// week, a forecast of 28 days (`forecast_min_days: 28` in the program's last month) fell 0.8 kg
+/// and nothing was flagged. Any further loss below BMI 18.5 (WHO 2000, Technical Report Series
+/// 894: underweight) is a clinician's matter once it is a loss at all; a path a little lower on
+/// a weight the trend cannot tell from steady is not one.
 const FALLS_FURTHER_KG: f64 = 1.0;
 
 /// BMI from which WHO calls a weight overweight (pre-obese), below it normal (18.5–24.9; WHO
@@ -1137,9 +1142,11 @@ struct Forecast {
     /// path or steady state below BMI 16 is withheld, so that the person heading there is named.
     underweight: Option<(Option<NaiveDate>, Option<f64>)>,
     /// For someone underweight now: the day the central path is lowest and its weight, when it
-    /// lies at least [`FALLS_FURTHER_KG`] below the current weight (also computed before a path
-    /// below BMI 16 is withheld).
+    /// lies at least [`FALLS_FURTHER_KG`] below the current weight, or lies below it at all
+    /// while the trend is still falling (also computed before a path below BMI 16 is withheld).
     falls_further: Option<(NaiveDate, f64)>,
+    /// The current weight, kg.
+    now_kg: f64,
     /// The weight at BMI 16 ([`MIN_STEADY_STATE_BMI`]), kg: a flag names no weight below it.
     severe_kg: f64,
     /// The current weight is below BMI 25 ([`OVERWEIGHT_BMI`]): loss is no goal now.
@@ -1244,11 +1251,18 @@ fn forecast(
             .filter(|w| *w < under_kg);
         (crosses.is_some() || rest.is_some()).then_some((crosses, rest))
     });
+    // Still falling: the window's slope, its whole 95 % interval below zero (as the outcomes
+    // module's low-BMI test reads the trend).
+    let still_falling = cur
+        .slope
+        .is_some_and(|sl| sl.value < 0.0 && sl.upper.is_some_and(|u| u < 0.0));
     let falls_further = cur
         .implied
         .filter(|_| cur.bw < under_kg)
         .and_then(|_| points.iter().min_by(|a, b| a.value.total_cmp(&b.value)))
-        .filter(|low| low.value <= cur.bw - FALLS_FURTHER_KG)
+        .filter(|low| {
+            low.value <= cur.bw - FALLS_FURTHER_KG || (still_falling && low.value < cur.bw)
+        })
         .map(|low| (low.date, low.value));
     // Like the steady state, a forecast that reaches a BMI below 16 (its path or the lower
     // edge of its band) is not shown: the model is not one of starvation, and a line drawn
@@ -1287,6 +1301,7 @@ fn forecast(
         steady,
         underweight,
         falls_further,
+        now_kg: cur.bw,
         severe_kg: min_kg,
         healthy_now: cur.bw < OVERWEIGHT_BMI * h_m * h_m,
     }
@@ -1302,6 +1317,9 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     if let Some((date, low)) = fc.falls_further {
         let to = if low < fc.severe_kg {
             "into severe thinness (a BMI below 16), where this model no longer applies,".into()
+        } else if fc.now_kg - low < FALLS_FURTHER_KG {
+            // Less than a kilogram: "to about 48 kg" from 48.3 read as no fall at all.
+            format!("to about {low:.1} kg")
         } else {
             format!("to about {low:.0} kg")
         };
