@@ -553,7 +553,10 @@ fn the_energy_section_explains_an_implied_intake_only_where_it_shows_one() {
         .find("aria-labelledby=\"h-energy\"")
         .expect("energy section")..];
     let energy = &energy[..energy.find("</section>").expect("its end")];
-    assert!(energy.contains("Resting energy (estimated)"), "{energy}");
+    assert!(
+        energy.contains("Resting energy (estimated, at your current weight)"),
+        "{energy}"
+    );
     assert!(!energy.contains("Intake implied by your weight trend"));
     assert!(
         !energy.contains("The intake implied by your weight trend comes from"),
@@ -1606,12 +1609,12 @@ fn every_participant_report_shows_the_tidy_figures() {
         // read "+899" beside 3,268 and 2,370: the logged 2,369.5 rounds up).
         for (label, a, b) in [
             (
-                "Implied intake minus logged intake",
+                "Implied intake minus logged intake (last 4 weeks)",
                 "energy.implied_intake_kcal_per_day",
                 "energy.logged_intake_kcal_per_day",
             ),
             (
-                "Energy balance (implied)",
+                "Energy balance (implied, last 4 weeks)",
                 "energy.implied_intake_kcal_per_day",
                 "energy.tdee_kcal_per_day",
             ),

@@ -850,7 +850,7 @@ struct Current {
     /// Net logged activity over the window, kcal/kg/d.
     met_h_window: f64,
     rmr: f64,
-    /// Net logged activity over the period, kcal/d.
+    /// Net logged activity over the window, kcal/d.
     activity: f64,
     logged: Option<f64>,
     logged_days: usize,
@@ -903,7 +903,6 @@ fn current_state(
 ) -> Current {
     let to = ctx.period.to;
     let enrolled = p.data.profile.enrolled;
-    let period_from = ctx.period.from.max(enrolled);
     let window_from = day_before(to, s.window_days - 1).max(enrolled);
     let fallback = if no_trend {
         ols_fallback(p.data, window_from, to)
@@ -931,7 +930,11 @@ fn current_state(
             }),
     };
     let rmr = p.rmr_at(bw, to);
-    let activity = p.activity_kcal(period_from, to, bw);
+    // Over the implied intake's window, as the logged intake below: it is printed beside it,
+    // and without an implied intake it makes up the total (a monthly report's activity was the
+    // period's mean beside intakes of its last 28 days; over the whole program, 180 days'
+    // beside 28).
+    let activity = p.activity_kcal(window_from, to, bw);
     // The logged intake over the window of the implied intake, so that their difference (the
     // intake gap, the logs-versus-trend flag) compares like with like: over a period of the
     // whole program the logs' mean of 180 days stood beside an implied intake of the last 28
@@ -1039,7 +1042,8 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current, left_befo
         names::ACTIVITY_NET_KCAL_PER_DAY,
         in_program(cur.activity),
         "kcal/d",
-        "Logged activity, net of resting ((MET − 1) × kg × h), added to the resting-based total",
+        "Logged activity, net of resting ((MET − 1) × kg × h), mean over the implied intake's \
+         window, added to the resting-based total",
     );
     // The 95 % interval, kept at or above resting energy: the total includes it.
     let h = Z_95 * cur.tdee_sd;

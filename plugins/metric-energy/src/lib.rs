@@ -203,14 +203,15 @@ impl MetricModule for EnergyModule {
                 "activity_net_kcal_per_day",
                 "scalar",
                 "kcal/d",
-                "Logged activity net of resting, mean over the period's days",
+                "Logged activity net of resting, mean over the days of the implied intake's window (the last window_days of the period)",
             ),
             OutputSpec::new(
                 "tdee_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "Implied intake minus the energy stored by the weight change; without an implied \
-                 intake, RMR × the estimated activity level + net activity",
+                 intake, RMR × the estimated activity level + net activity; over the implied \
+                 intake's window (the last window_days of the period)",
             ),
             OutputSpec::new(
                 "logged_intake_kcal_per_day",

@@ -1614,3 +1614,53 @@ fn an_underweight_weight_still_falling_is_flagged_whatever_the_forecast_s_length
     assert_eq!(run_with(48.0, 0.0, 0.005).2, None);
     assert_eq!(run_with(48.1, 0.02, 0.005).2, None);
 }
+
+/// The net activity is the mean over the implied intake's window, the days of the intakes it is
+/// printed beside. Over a period of the whole program (report.period: program_to_date) it was
+/// the period's mean: walking every day of the last four weeks read as half of it (56 days), and
+/// walking only in the month before the window read as half too, beside an implied and a
+/// logged intake of the last 28 days.
+#[test]
+fn the_net_activity_covers_the_implied_intake_s_window() {
+    let enrolled = d("2027-01-04");
+    // The whole program so far: 56 days; the window is its last 28, 1 to 28 February.
+    let period = Period {
+        from: enrolled,
+        to: d("2027-02-28"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
+    let weights = vec![85.0; n];
+    data.weights = daily_weigh_ins(enrolled, &weights);
+    let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::Value::Null);
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, &weights, 0.4, 0.005, &[]),
+    );
+    // One hour of walking at 3.5 MET (Compendium 2011 code 17190) a day from `from`, 28 days.
+    let walks = |from: NaiveDate| -> Vec<ActivityEntry> {
+        (0..28)
+            .map(|i| ActivityEntry {
+                date: day_after(from, i),
+                activity: "17190".into(),
+                minutes: 60.0,
+                met: 3.5,
+                met_source: "Compendium 2011 code 17190".into(),
+                steps: None,
+            })
+            .collect()
+    };
+    // (3.5 − 1) × 85 kg × 1 h = 212.5 kcal/d net on each day walked.
+    data.activity = walks(d("2027-02-01"));
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let activity = out.scalar("activity_net_kcal_per_day").unwrap();
+    assert!(
+        (activity - 212.5).abs() < 1e-9,
+        "{activity} (the period's mean: 106.25)"
+    );
+    // Walking only in January, before the window: none in it.
+    data.activity = walks(enrolled);
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let activity = out.scalar("activity_net_kcal_per_day").unwrap();
+    assert!(activity.abs() < 1e-9, "{activity}");
+}
