@@ -1552,7 +1552,7 @@ struct RawIntake {
 
 /// Labels of a food diary's row that totals the day's other rows (in a column of its own, such
 /// as `Meal`).
-const TOTAL_LABELS: [&str; 7] = [
+const TOTAL_LABELS: [&str; 14] = [
     "total",
     "totals",
     "daily total",
@@ -1560,6 +1560,14 @@ const TOTAL_LABELS: [&str; 7] = [
     "sum",
     "summe",
     "gesamt",
+    // The same in the other languages of [`SUMMARY_LABELS`].
+    "somme",
+    "suma",
+    "totale",
+    "somma",
+    "soma",
+    "totaal",
+    "totalt",
 ];
 
 /// How far a day's `Total` row may be from the sum of its other rows and still be their total:

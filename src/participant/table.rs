@@ -3513,8 +3513,13 @@ fn iso_date(s: &str) -> Option<NaiveDate> {
     NaiveDate::from_ymd_opt(i32::try_from(y).ok()?, m, d)
 }
 
-/// Words of rows that sum up the others (a spreadsheet's `Average` row, a food diary's `Total`).
-pub const SUMMARY_LABELS: [&str; 14] = [
+/// Words of rows that sum up the others (a spreadsheet's `Average` row, a food diary's `Total`),
+/// also as spreadsheets in other languages label them: German, French (`Moyenne`, `Somme`),
+/// Spanish and Italian (`Promedio`, `Media`, `Suma`, `Totale`, `Somma`), Portuguese (`Média`,
+/// `Soma`), Dutch (`Gemiddelde`, `Totaal`), Polish (`Średnia`, `Suma`) and the Scandinavian
+/// languages (`Gennemsnit`, `Genomsnitt`, `Gjennomsnitt`, `Totalt`). A row labelled so
+/// where its date would be was warned about as an unreadable date every month.
+pub const SUMMARY_LABELS: [&str; 33] = [
     "total",
     "totals",
     "daily total",
@@ -3525,10 +3530,29 @@ pub const SUMMARY_LABELS: [&str; 14] = [
     "median",
     "min",
     "max",
+    "minimum",
+    "maximum",
     "summe",
     "gesamt",
     "durchschnitt",
     "mittelwert",
+    "moyenne",
+    "somme",
+    "promedio",
+    "media",
+    "mediana",
+    "suma",
+    "totale",
+    "somma",
+    "média",
+    "soma",
+    "gemiddelde",
+    "totaal",
+    "średnia",
+    "gennemsnit",
+    "genomsnitt",
+    "gjennomsnitt",
+    "totalt",
 ];
 
 /// Whether `text` is one of `labels` (lowercase), whatever its case, spacing or final colon.

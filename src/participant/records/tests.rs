@@ -1,5 +1,7 @@
 use super::*;
 use crate::diag::Severity;
+use crate::participant::table::ColumnMap;
+use std::sync::Arc;
 
 fn d(y: i32, m: u32, day: u32) -> NaiveDate {
     NaiveDate::from_ymd_opt(y, m, day).unwrap()
@@ -2834,6 +2836,76 @@ fn summary_rows_at_the_foot_are_left_out_with_a_note_and_two_unit_columns_read_t
             == "columns `Weight (kg)` and `Weight (lb)` give `weight` in two units; `Weight (kg)` is read"),
         "{notes:#?}"
     );
+}
+
+/// Summary rows at the foot of a spreadsheet saved in another language: a Dutch `Gemiddelde` and
+/// `Totaal verschil`, a French `Moyenne`, a Spanish `Promedio`, an Italian `Media`, a Polish
+/// `Średnia`. They were each warned about as "unreadable date … expected: a date like
+/// `2026-04-01`", with the hint to write dates so, in a file whose dates had all been read, and
+/// every monthly run ended with warnings. They are left out with the note English ones get; a
+/// food diary's day total in such a language is checked against the day's rows as `Total` is.
+#[test]
+fn summary_rows_in_other_languages_are_left_out_with_a_note() {
+    for (text, first) in [
+        (
+            "Datum;Gewicht (kg);Opmerking\n13-4-2026;99,2;\n15-4-2026;99,1;na het sporten\n;;\n\
+             Gemiddelde;99,2;\nTotaal verschil;-0,1;\n",
+            "2 rows summing up the others (`Gemiddelde` on line 5)",
+        ),
+        (
+            "Date;Poids (kg);Remarques\n01/04/2026;87,9;\n14/04/2026;87,5;\nMoyenne;87,7;\n",
+            "`Moyenne` on line 4",
+        ),
+        (
+            "Fecha;Peso (kg)\n1/4/2026;83,6\n13/4/2026;82,7\nPromedio;83,2\nSuma;166,3\n",
+            "`Promedio` on line 4",
+        ),
+        (
+            "Data;Peso (kg)\n01/04/2026;69,9\n14/04/2026;69,3\nMedia;69,6\n",
+            "`Media` on line 4",
+        ),
+        (
+            "Data;Waga (kg)\n01.04.2026;111,7\n19.04.2026;111,6\nŚrednia;111,7\n",
+            "`Średnia` on line 4",
+        ),
+    ] {
+        let ctx = ctx("weights.csv");
+        let mut diags = Vec::new();
+        // Mapped as the GUIDE says (`input.columns`), keyed as `header_key` writes them.
+        let map: ColumnMap = [
+            ("data", "date"),
+            ("fecha", "date"),
+            ("poids", "weight"),
+            ("peso", "weight"),
+            ("waga", "weight"),
+        ]
+        .map(|(theirs, ours)| (theirs.to_string(), ours.to_string()))
+        .into();
+        let opts = CsvOptions {
+            columns: Arc::new([("weights".to_string(), map)].into()),
+            ..CsvOptions::default()
+        };
+        let w = parse_weights(text, &opts, &ctx, &window(), &mut diags);
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        assert!(diags.is_empty(), "{text}: {diags:#?}");
+        assert_eq!(w.unwrap().len(), 2, "{text}");
+        assert!(
+            notes.iter().any(|n| n.contains(first)),
+            "{text}: {notes:#?}"
+        );
+    }
+    let ctx = ctx("intake.csv");
+    let mut diags = Vec::new();
+    let i = parse_intake(
+        "Datum;Maaltijd;Kalorien\n2026-05-04;Ontbijt;400\n2026-05-04;Lunch;600\n2026-05-04;Totaal;1000\n",
+        &CsvOptions::default(),
+        &ctx,
+        &window(),
+        &mut diags,
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kcal: Vec<f64> = i.unwrap().iter().map(|x| x.kcal).collect();
+    assert_eq!(kcal, [1000.0]);
 }
 
 /// A header that says how its clock durations are written (`Duration (h:mm)`, `Duration
