@@ -234,6 +234,9 @@ pub struct Table {
     /// Rows with a date and nothing recorded (see [`Table::is_unfilled`]): how many, and the
     /// first one's line.
     unfilled_rows: Cell<(usize, u64)>,
+    /// An activity file's rows that give only a step count (see [`Table::is_step_count`]):
+    /// how many, and the first one's line.
+    step_count_rows: Cell<(usize, u64)>,
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
     /// the file's note.
     recognised: RefCell<std::collections::BTreeSet<std::borrow::Cow<'static, str>>>,
@@ -279,6 +282,36 @@ impl Table {
     pub fn unfilled_row(&self, row: &Row) {
         let (n, first) = self.unfilled_rows.get();
         self.unfilled_rows.set((
+            n + 1,
+            if n == 0 {
+                row.line
+            } else {
+                first.min(row.line)
+            },
+        ));
+    }
+
+    /// Whether `row` of an activity file gives a step count and no activity: its `steps` holds
+    /// a value while its `activity`, `minutes`, `met` and `end` are empty or placeholders, as a
+    /// phone's export lists each day's steps in a row of its own beside the day's workouts.
+    pub fn is_step_count(&self, row: &Row) -> bool {
+        let blank = |c: &str| self.get(row, c).is_none_or(is_placeholder);
+        self.get(row, "steps").is_some_and(|s| !is_placeholder(s))
+            && ["activity", "minutes", "met", "end"].into_iter().all(blank)
+    }
+
+    /// Whether `row` of an activity file names an activity or a duration (a workout, even one
+    /// whose other values fail).
+    pub fn gives_workout(&self, row: &Row) -> bool {
+        ["activity", "minutes"]
+            .into_iter()
+            .any(|c| self.get(row, c).is_some_and(|s| !is_placeholder(s)))
+    }
+
+    /// Counts `row` as one that gives only a step count, for the file's note.
+    pub fn step_count_row(&self, row: &Row) {
+        let (n, first) = self.step_count_rows.get();
+        self.step_count_rows.set((
             n + 1,
             if n == 0 {
                 row.line
@@ -403,6 +436,7 @@ impl Table {
             date_rows_in: None,
             summary_rows: RefCell::new((0, None)),
             unfilled_rows: Cell::new((0, 0)),
+            step_count_rows: Cell::new((0, 0)),
             recognised: RefCell::default(),
             dropped: (0, None),
         }
@@ -486,6 +520,17 @@ impl Table {
             parts.push(format!(
                 "{rows} with a date and nothing recorded (first on line {line}; the days a log \
                  sheet leaves blank) not read"
+            ));
+        }
+        if let (n @ 1.., line) = self.step_count_rows.get() {
+            let rows = if n == 1 {
+                "1 row".to_string()
+            } else {
+                format!("{n} rows")
+            };
+            parts.push(format!(
+                "{rows} giving only a step count (first on line {line}) not read: steps alone give \
+                 no activity minutes (an activity and its duration are read, with the steps beside them)"
             ));
         }
         for (written, col) in &self.renamed {

@@ -1976,6 +1976,50 @@ fn activity_or_error(text: &str) -> (Option<Vec<ActivityEntry>>, Vec<Diagnostic>
     (a, diags)
 }
 
+/// A phone's activity export lists each day's step count as a row of its own beside the day's
+/// workouts (`2026-04-02,,,,8412,` under `Date,Activity Type,Duration,Distance (km),Steps,…`).
+/// Every such row was warned about as "`activity` is empty; the row is dropped": 160 warnings
+/// in a six-month export, and every run ended with warnings. Such a row is a step count, no
+/// activity (steps alone give no minutes: GUIDE, "Activities"): not read, with one note. A
+/// row with steps and a duration but no activity keeps its warning (a workout whose label is
+/// missing), and so does a file whose every row gives steps only (nothing in it is read).
+#[test]
+fn step_count_rows_beside_workouts_are_noted_not_warned_about() {
+    let text = "Date,Activity Type,Duration,Distance (km),Steps,Calories Burned\n\
+                2026-04-01,Walking,00:32:00,2.88,3520,128\n2026-04-01,,,,8412,\n\
+                2026-04-02,,,,5120,\n2026-04-03,,-,,11032,\n2026-04-04,Walking,00:41:00,3.69,4510,164\n\
+                2026-04-04,,,,9870,\n";
+    let c = ctx("activity.csv");
+    let mut diags = Vec::new();
+    let a = parse_activity(text, &CsvOptions::default(), &c, &window(), &mut diags);
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [32.0, 41.0]);
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.iter().any(|n| n.contains(
+            "4 rows giving only a step count (first on line 3) not read: steps alone give no activity minutes"
+        )),
+        "{notes:#?}"
+    );
+    // A duration without its activity is a workout with its label missing.
+    let (_, diags) = activity_or_error(
+        "Date,Activity,Duration,Steps\n2026-04-01,Walking,30,3500\n2026-04-02,,45,5200\n",
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(2)));
+    // Step counts only, under a workout export's header: nothing to read, as before.
+    let (a, diags) =
+        activity_or_error("Date,Activity,Duration,Steps\n2026-04-01,,,3500\n2026-04-02,,,5200\n");
+    assert!(a.is_none_or(|a| a.is_empty()));
+    assert!(
+        diags
+            .iter()
+            .any(|d| d.message.contains("`activity` is empty")),
+        "{diags:#?}"
+    );
+}
+
 /// An export that writes durations as minutes:seconds (`45:00`, `32:30`): `45:00` read as
 /// hours:minutes is a 45-hour activity, which cannot be, so the file's one-colon durations are
 /// minutes:seconds — all of them, `1:30` too (a minute and a half). Every such row was dropped
