@@ -3330,11 +3330,29 @@ fn numeric_order(
         })
         .filter(|(_, s, _)| parse_when(s, opts).is_none())
         .collect();
-    let dates: Vec<(&Row, &str, NumericParts)> = numeric
+    // A date with a four-digit year that no order reads (`31/04/2026`: 31 April is no day, and
+    // there is no month 31) is a typo that tells nothing of the order. It took part, so no
+    // order read every date, and then every numeric date of the file was unreadable: one typo
+    // cost the file. The other dates decide; it costs its own row, warned about at its cell.
+    let impossible = |p: &NumericParts| {
+        !p.4 && NumericOrder::ALL
+            .iter()
+            .all(|o| place(*p, *o, span).is_none())
+    };
+    let all_dates: Vec<(&Row, &str, NumericParts)> = numeric
         .iter()
         .filter(|(_, s, _)| !after_consent(s))
         .copied()
         .collect();
+    let dates: Vec<(&Row, &str, NumericParts)> = if all_dates.iter().all(|(_, _, p)| impossible(p))
+    {
+        all_dates
+    } else {
+        all_dates
+            .into_iter()
+            .filter(|(_, _, p)| !impossible(p))
+            .collect()
+    };
     let Some(&(first_row, first, _)) = dates.first() else {
         // Every numeric date lies after the withdrawal in each of its readings: an order that
         // reads them all lets the rows be left out as dated after it, like ISO-dated ones,
@@ -3372,7 +3390,14 @@ fn numeric_order(
     let dated = table
         .rows
         .iter()
-        .filter(|r| table.get(r, "date").is_some_and(|s| !after_consent(s)))
+        .filter(|r| {
+            table.get(r, "date").is_some_and(|s| {
+                !after_consent(s)
+                    && (parse_when(s, opts).is_some()
+                        || numeric_parts(s).is_none_or(|p| !impossible(&p))
+                        || dates.iter().any(|(_, _, q)| impossible(q)))
+            })
+        })
         .count();
     let short = dates.iter().any(|(_, _, p)| p.4);
     let within = match span {
@@ -3733,6 +3758,17 @@ impl Cells<'_> {
             .or_else(|| self.serial_date(s))
             .or_else(|| self.numeric_date(s))
             .or_else(|| self.unix_time(s));
+        // A numeric date of a file whose order is known that no order reads: a day the
+        // calendar lacks (`31/04/2026`), said as such rather than as a date in the wrong form.
+        let impossible = self
+            .table
+            .numeric_order
+            .zip(numeric_parts(s))
+            .filter(|(_, p)| {
+                !p.4 && NumericOrder::ALL
+                    .iter()
+                    .all(|o| place(*p, *o, self.opts.program_span).is_none())
+            });
         match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
@@ -3777,6 +3813,40 @@ impl Cells<'_> {
             // measurement: left out, and counted for the file's note.
             None if is_summary_date(s) => {
                 self.summary_row(s);
+                None
+            }
+            None if impossible.is_some() => {
+                let (order, (a, b, y, ..)) = impossible.expect("checked");
+                let (day, month) = match order {
+                    NumericOrder::MonthFirst => (b, a),
+                    _ => (a, b),
+                };
+                let why = match NaiveDate::from_ymd_opt(y, month, 1) {
+                    Some(first) => {
+                        let days = first
+                            .checked_add_months(chrono::Months::new(1))
+                            .and_then(|next| next.pred_opt())
+                            .map_or(31, |last| last.day());
+                        format!("day {day} of month {month}, which has {days} days in {y}")
+                    }
+                    None if month == 0 || day == 0 => "a day or month 0".to_string(),
+                    None => format!("month {month}, and a year has 12"),
+                };
+                let like = self
+                    .table
+                    .numeric_example
+                    .as_ref()
+                    .map(|(w, d)| format!(" (`{w}` = {d})"))
+                    .unwrap_or_default();
+                diags.push(
+                    self.warn(col, "no such day; the row is dropped")
+                        .expected(format!(
+                            "a day of the calendar, written {} as the file's other dates{like}",
+                            order.words()
+                        ))
+                        .found(format!("`{s}`: read {}, {why}", order.words()))
+                        .hint("correct the day or the month of this date in the file (a slip of the keyboard or of a month's length), or remove the row"),
+                );
                 None
             }
             None if is_serial(s) => {

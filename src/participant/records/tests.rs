@@ -2952,6 +2952,66 @@ fn summary_rows_in_other_languages_are_left_out_with_a_note() {
     assert_eq!(kcal, [1000.0]);
 }
 
+/// One impossible date in a spreadsheet of numeric dates (`31/04/2026` typed for 30 April, or
+/// `4/31/2026` month first: no order reads it, as 31 April is no day and there is no month 31)
+/// left the file with no order that reads every date, and then every numeric date was
+/// "unreadable": the whole file was lost ("no row of the file could be read: 13 rows
+/// dropped"), for one typo. Such a date tells nothing of the order: the others decide it, and
+/// only its own row is dropped, with a warning at its cell.
+#[test]
+fn one_impossible_numeric_date_costs_its_row_not_the_file() {
+    for (text, line, days) in [
+        (
+            "Date;Gewicht (kg)\n01/04/2026;69,9\n14/04/2026;69,3\n31/04/2026;69,5\n01/05/2026;68,1\n",
+            4,
+            [(4, 1), (4, 14), (5, 1)],
+        ),
+        (
+            "Date,Weight (lb),Notes\n4/1/2026,250.9,\n4/13/2026,250.2,\n4/31/2026,249.0,typo\n5/2/2026,248.2,\n",
+            4,
+            [(4, 1), (4, 13), (5, 2)],
+        ),
+    ] {
+        let mut diags = Vec::new();
+        let w = parse_weights(
+            text,
+            &CsvOptions::default(),
+            &ctx("weights.csv"),
+            &window(),
+            &mut diags,
+        )
+        .expect("the file is read");
+        let dates: Vec<NaiveDate> = w.iter().map(|x| x.date).collect();
+        assert_eq!(dates, days.map(|(m, day)| d(2026, m, day)), "{text}");
+        assert_eq!(diags.len(), 1, "{text}: {diags:#?}");
+        assert_eq!((diags[0].line, diags[0].column), (Some(line), Some(1)));
+        assert_eq!(diags[0].severity, Severity::Warning);
+        // Said as a day the calendar lacks, in the file's own order, not as a date in the
+        // wrong form ("expected: a date like `2026-04-01` (format `%Y-%m-%d`)").
+        let said = diags[0].to_string();
+        assert!(said.contains("no such day; the row is dropped"), "{said}");
+        assert!(
+            said.contains("day 31 of month 4, which has 30 days in 2026"),
+            "{said}"
+        );
+        assert!(!said.contains("%Y-%m-%d"), "{said}");
+    }
+    // Two-digit years keep their refusal: `14/05/19` is no date within a 2026 program.
+    let mut diags = Vec::new();
+    let opts = CsvOptions {
+        program_span: Some((d(2026, 4, 1), d(2026, 9, 30))),
+        ..CsvOptions::default()
+    };
+    let w = parse_weights(
+        "date,weight,unit\n01/05/26,80,kg\n14/05/19,80,kg\n",
+        &opts,
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none(), "{diags:#?}");
+}
+
 /// A header that says how its clock durations are written (`Duration (h:mm)`, `Duration
 /// (mm:ss)`): the file was refused, the unit not understood; and without it a one-colon
 /// duration that fits both readings was dropped. A bare number under such a header could be
