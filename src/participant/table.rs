@@ -1719,6 +1719,41 @@ fn read_records(
              their durations instead, or leave steps to an external module \
              (plugins/example-external summarises them)"
                 .to_string()
+        } else if let Some((i, col, base, unit)) = missing.iter().find_map(|m| {
+            // A missing value column (`weight`, `kcal`) and one column not read whose header
+            // names a unit it takes (`Poids (kg)`, `Énergie (kcal)`: a spreadsheet in another
+            // language): that column is most likely it, and the hint gives the mapping to
+            // copy, not "Their name". Its unit then comes with it, so a missing `unit` is no
+            // more to add.
+            let (_, allowed, _) = spec.header_units.iter().find(|(v, _, _)| v == m)?;
+            let mut with_unit = unnamed.iter().filter_map(|&i| {
+                let (_, unit) = header_key(written.get(i)?);
+                let unit = unit.filter(|u| allowed.contains(&u.as_str()))?;
+                Some((i, unit))
+            });
+            match (with_unit.next(), with_unit.next()) {
+                (Some((i, unit)), None) => {
+                    let w = written[i].trim().trim_start_matches('\u{feff}');
+                    let base = w.rsplit_once(['(', '[']).map_or(w, |(b, _)| b).trim();
+                    Some((i, *m, base.to_string(), unit))
+                }
+                _ => None,
+            }
+        }) {
+            let unit_too = spec
+                .header_units
+                .iter()
+                .find(|(v, _, _)| *v == col)
+                .and_then(|(_, _, r)| *r)
+                .filter(|r| missing.contains(r))
+                .map(|r| format!(" (and `{r}` is then not needed: the header gives it)"))
+                .unwrap_or_default();
+            format!(
+                "`{}` (column {}) names a unit of `{col}` ({unit}) in its header; if it holds the {col}, map it in program.yaml: `input: {{ columns: {{ {}: {{ \"{base}\": {col} }} }} }}`, and the unit in its brackets is read with it{unit_too}",
+                written[i].trim().trim_start_matches('\u{feff}'),
+                i + 1,
+                spec.kind(),
+            )
         } else {
             format!(
                 "name the columns in the first row (any order), or map the file's own names to ours in program.yaml: `input: {{ columns: {{ {}: {{ \"Their name\": {} }} }} }}`",

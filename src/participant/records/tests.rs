@@ -3012,6 +3012,60 @@ fn one_impossible_numeric_date_costs_its_row_not_the_file() {
     assert!(w.is_none(), "{diags:#?}");
 }
 
+/// A spreadsheet in another language (`Date;Poids (kg);Remarques`, a food app's `Énergie
+/// (kcal)`): the file was refused for missing `weight` and `unit` with the hint to map
+/// "Their name", though one column not read names the unit the missing column takes. The hint
+/// now names that column and gives the mapping to copy, and says the unit comes with it.
+/// Two such columns (`Poids (kg)`, `Masse grasse (kg)`) leave the choice open: the plain hint.
+#[test]
+fn a_missing_value_column_whose_unit_a_column_names_gets_the_mapping_to_copy() {
+    let hint_of = |diags: &[Diagnostic]| {
+        assert_eq!(diags.len(), 1, "{diags:#?}");
+        diags[0].hint.clone().unwrap_or_default()
+    };
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "Date;Poids (kg);Remarques\n01/04/2026;87,9;\n14/04/2026;87,5;après le sport\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none());
+    let hint = hint_of(&diags);
+    assert!(
+        hint.contains(
+            "`Poids (kg)` (column 2) names a unit of `weight` (kg) in its header; if it holds the weight, map it in program.yaml: `input: { columns: { weights: { \"Poids\": weight } } }`"
+        ),
+        "{hint}"
+    );
+    assert!(hint.contains("`unit` is then not needed"), "{hint}");
+    let mut diags = Vec::new();
+    let i = parse_intake(
+        "Date;Repas;Aliment;Énergie (kcal)\n2026-04-01;Déjeuner;Salade;420\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(i.is_none());
+    let hint = hint_of(&diags);
+    assert!(hint.contains("{ intake: { \"Énergie\": kcal } }"), "{hint}");
+    assert!(!hint.contains("not needed"), "{hint}");
+    let mut diags = Vec::new();
+    parse_weights(
+        "Date;Poids (kg);Masse grasse (kg)\n01/04/2026;87,9;30,1\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(
+        hint_of(&diags).contains("\"Their name\": weight"),
+        "{diags:#?}"
+    );
+}
+
 /// A header that says how its clock durations are written (`Duration (h:mm)`, `Duration
 /// (mm:ss)`): the file was refused, the unit not understood; and without it a one-colon
 /// duration that fits both readings was dropped. A bare number under such a header could be
