@@ -3926,14 +3926,35 @@ impl Cells<'_> {
                         "write dates like `{example}` or as ISO 8601 date-times (`2026-04-01T07:30:00+02:00`), and check the day exists"
                     ),
                 };
+                // In a file whose numeric dates were read in an order (`14/04/2026`, day first),
+                // a date like the others is what the row needs, not the program's `%Y-%m-%d`: a
+                // typo (`1O/05/2026`) read "expected: a date like `2026-04-01` (format
+                // `%Y-%m-%d`)", as if the file's form were wrong.
+                let (expected, hint) = match (self.table.numeric_order, &self.table.numeric_example)
+                {
+                    (Some(order), Some((w, d))) => (
+                        format!(
+                            "a date written {} as the file's other dates (`{w}` = {d}), or an ISO 8601 date",
+                            order.words()
+                        ),
+                        format!(
+                            "correct this date in the file (digits only, {} like `{w}`), or remove the row",
+                            order.words()
+                        ),
+                    ),
+                    _ => (
+                        format!(
+                            "a date like `{example}` (format `{}`) or an ISO 8601 date-time",
+                            self.opts.date_format
+                        ),
+                        hint,
+                    ),
+                };
                 // A delimiter inside the text before the date moved it one column on.
                 let hint = self.split_text_before(col).unwrap_or(hint);
                 diags.push(
                     self.warn(col, "unreadable date; the row is dropped")
-                        .expected(format!(
-                            "a date like `{example}` (format `{}`) or an ISO 8601 date-time",
-                            self.opts.date_format
-                        ))
+                        .expected(expected)
                         .found(format!("`{s}`"))
                         .hint(hint),
                 );

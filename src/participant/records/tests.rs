@@ -2996,6 +2996,24 @@ fn one_impossible_numeric_date_costs_its_row_not_the_file() {
         );
         assert!(!said.contains("%Y-%m-%d"), "{said}");
     }
+    // A typo that is no numeric date at all (`1O/05/2026`, a letter O) in such a file: the
+    // warning asks for a date like the file's others, not for the program's `%Y-%m-%d`.
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "Date;Gewicht (kg)\n01/04/2026;69,9\n14/04/2026;69,3\n1O/05/2026;69,5\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert_eq!(w.map(|w| w.len()), Some(2));
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let said = diags[0].to_string();
+    assert!(
+        said.contains("expected: a date written day first as the file's other dates (`14/04/2026` = 2026-04-14)"),
+        "{said}"
+    );
+    assert!(!said.contains("%Y-%m-%d"), "{said}");
     // Two-digit years keep their refusal: `14/05/19` is no date within a 2026 program.
     let mut diags = Vec::new();
     let opts = CsvOptions {
