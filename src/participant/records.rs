@@ -2923,7 +2923,29 @@ pub fn parse_labs(
             };
             let canonical = convert(value);
             let (lo, hi) = lab_range(test);
-            if !(lo..=hi).contains(&canonical) {
+            // `<0.5 mmol/L`, `<2.5 %`: an assay's lower limit below the range a value may
+            // plausibly take. The bound is true whatever the value (it lies below a limit below
+            // the range), so it is kept as the bound it is, as a `<` bound within the range is,
+            // and raises no flag (no cut-off of ours lies below the range); it was dropped as
+            // an implausible value, and with it the only record of the test.
+            let low_bound = matches!(censored, Some(Censor::Below | Censor::AtMost));
+            if low_bound && canonical < lo {
+                d.push(
+                    c.warn(
+                        "value",
+                        format!(
+                            "`{name}` bound below the plausible range; kept as the bound it is \
+                             ({} {} {}), with no flag",
+                            censored.map_or("<", Censor::symbol),
+                            num.trim(),
+                            unit,
+                        ),
+                    )
+                    .expected(format!("{lo} to {hi} {}", test.canonical_unit()))
+                    .found(format!("`{raw}`"))
+                    .hint("check the laboratory's report for the limit of the assay"),
+                );
+            } else if !(lo..=hi).contains(&canonical) {
                 d.push(
                     c.warn(
                         "value",

@@ -348,7 +348,10 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
     }
     let m = &g.methods;
     let methods = vec![
-        Kv::new("Who counts (intention-to-treat)", &m.itt_denominator),
+        Kv::new(
+            "Who counts (modified intention-to-treat)",
+            &m.itt_denominator,
+        ),
         Kv::new("Retention", &m.retention),
         Kv::new("Withdrawal", &m.withdrawal),
         Kv::new("Weights", &m.weights),
@@ -439,6 +442,12 @@ fn fill(
                 "Started (baseline weight recorded)".into(),
                 count(&e.started),
             ],
+            // Those outside the modified intention-to-treat figures (no baseline): a count
+            // group.json already gives, suppressed and audited as every count of the section.
+            vec![
+                "Enrolled without a baseline weight (outside the weight-change figures)".into(),
+                count(&e.not_started),
+            ],
             vec![
                 "Started and still in the program at the end of the period".into(),
                 count(&e.retained),
@@ -466,15 +475,18 @@ fn fill(
             "Median (95 % CI)".into(),
         ],
         rows: vec![
-            change_row("Intention-to-treat, baseline carried forward", &w.bocf),
             change_row(
-                "Intention-to-treat, last observation carried forward",
+                "Modified intention-to-treat, baseline carried forward",
+                &w.bocf,
+            ),
+            change_row(
+                "Modified intention-to-treat, last observation carried forward",
                 &w.locf,
             ),
             change_row("Completers only", &w.completers),
         ],
     };
-    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The intention-to-treat lines count everyone who started: someone without a weigh-in in the last 4 weeks of the period counts as unchanged (baseline carried forward: the first line, the primary and conservative figure) or at their last weigh-in (last observation carried forward). Completers only counts just those with a weigh-in in the last 4 weeks. CI: 95 % confidence interval, the range the true mean or median likely lies in.".into();
+    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The (modified) intention-to-treat lines count everyone who started, that is everyone enrolled with a baseline weight (those without one are counted in the table above and are outside these lines): someone without a weigh-in in the last 4 weeks of the period counts as unchanged (baseline carried forward: the first line, the primary and conservative figure) or at their last weigh-in (last observation carried forward). Completers only counts just those with a weigh-in in the last 4 weeks. CI: 95 % confidence interval, the range the true mean or median likely lies in.".into();
     view.milestones = TableView {
         header: vec![
             "Loss of at least".into(),
@@ -551,7 +563,7 @@ fn fill(
             suppressed: !matches!(b.count, Shown::Value(_)),
         })
         .collect();
-    let hist_alt = "Number of participants by percent weight change from baseline (intention-to-treat, baseline carried forward).".to_string();
+    let hist_alt = "Number of participants by percent weight change from baseline (modified intention-to-treat, baseline carried forward).".to_string();
     let hist_table = TableView {
         header: vec!["Change".into(), "Participants".into()],
         rows: st

@@ -1701,6 +1701,50 @@ fn censored_lab_values_are_read_as_bounds() {
     );
 }
 
+/// A `<` bound below the plausible range (an assay's lower limit: `<2.5 %`, `<0.5 mmol/L`) is
+/// a true statement about the value, as a `<` bound within the range is: it was dropped as an
+/// implausible value. It is kept as the bound, with a warning that says so; a plain value
+/// below the range, or a `>` bound there, is still dropped.
+#[test]
+fn a_lab_bound_below_the_plausible_range_is_kept_as_a_bound() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,hba1c,<2.5,%\n2026-04-02,fasting_glucose,<= 9 mg/dL,\n2026-04-03,hba1c,2.5,%\n2026-04-04,hba1c,>2.5,%\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let got: Vec<(LabTest, f64, Option<Censor>)> =
+        v.iter().map(|l| (l.test, l.value, l.censored)).collect();
+    assert_eq!(got.len(), 2, "{got:?} {diags:#?}");
+    assert_eq!(got[0], (LabTest::Hba1c, 2.5, Some(Censor::Below)));
+    // 9 mg/dL ÷ 18.016 = 0.50 mmol/L (ADA Standards of Care, Section 2: 126 mg/dL = 7.0).
+    assert_eq!(got[1].0, LabTest::FastingGlucose);
+    assert!((got[1].1 - 9.0 / 18.016).abs() < 1e-9, "{got:?}");
+    assert_eq!(got[1].2, Some(Censor::AtMost));
+    assert_eq!(v[1].value_as_written, 9.0);
+    assert_eq!(diags.len(), 4, "{diags:#?}");
+    assert_eq!(
+        diags[0].message,
+        "`hba1c` bound below the plausible range; kept as the bound it is (< 2.5 %), with no flag"
+    );
+    assert_eq!(diags[0].line, Some(2));
+    assert_eq!(diags[0].found.as_deref(), Some("`<2.5`"));
+    assert_eq!(
+        diags[1].message,
+        "`fasting_glucose` bound below the plausible range; kept as the bound it is (<= 9 mg/dL), with no flag"
+    );
+    for d in &diags[2..] {
+        assert!(
+            d.message
+                .contains("implausible `hba1c` value; the row is dropped"),
+            "{d:#?}"
+        );
+    }
+}
+
 #[test]
 fn labs_are_converted_to_canonical_units() {
     let mut diags = Vec::new();
