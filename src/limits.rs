@@ -381,6 +381,12 @@ pub fn read_input(path: &Path) -> std::io::Result<Vec<u8>> {
     read_limited(path, limit_for(path))
 }
 
+/// Whether `e` is [`read_limited`]'s refusal of a file over its limit (its message is
+/// [`too_large_message`]).
+pub fn is_over_limit(e: &std::io::Error) -> bool {
+    e.kind() == std::io::ErrorKind::Other && e.to_string().contains(", larger than the limit of ")
+}
+
 /// [`read_input`] with an explicit limit.
 pub fn read_limited(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
     read_open(open_input(path)?, limit)

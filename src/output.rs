@@ -193,6 +193,8 @@ pub struct Staging {
     access: Access,
     final_dir: PathBuf,
     dir: PathBuf,
+    /// The staging folder's identity when it was made ([`folder_id`]).
+    staging_id: FolderId,
     previous: PathBuf,
     written: Mutex<Vec<OutputFile>>,
     folders: Mutex<std::collections::BTreeSet<PathBuf>>,
@@ -942,15 +944,19 @@ impl Staging {
         {
             // Registered as it is made: an interrupt from here on removes it.
             let mut live = live_staging();
-            create_dir(&dir, access)?;
+            // Made here and now (never a folder or link already at its name), and known from
+            // then on by its identity, which the commit checks before it moves it into place.
+            create_new_dir(&dir, access)?;
             new_file(&dir.join(STAGING_MARKER), access)?;
             live.push((dir.clone(), out_dir.clone(), STAGING_MARKER));
         }
+        let staging_id = folder_id(&dir).map_err(io(&dir))?;
         clear_interrupted_siblings(&parent, &name);
         Ok(Staging {
             access,
             final_dir: out_dir,
             dir,
+            staging_id,
             previous,
             written: Mutex::new(Vec::new()),
             folders: Mutex::new(std::collections::BTreeSet::new()),
@@ -1118,6 +1124,19 @@ impl Staging {
                 .lock()
                 .expect("no panics while holding the lock"),
         );
+        // The staging folder must be the one this run made: one swapped for a link (or another
+        // folder) while the run went on would be renamed into place as the output, a link
+        // to somewhere else.
+        if folder_id(&self.dir).ok() != Some(self.staging_id) {
+            return Err(StagingError::Io {
+                path: self.dir.display().to_string(),
+                source: std::io::Error::other(format!(
+                    "the staging folder was replaced (by a link or another folder) while the \
+                     run went on; it was left as it is and not put in place; {}",
+                    self.kept()
+                )),
+            });
+        }
         sync_written(&self.dir, folders.iter().rev().map(PathBuf::as_path))
             .map_err(|e| self.at_commit(e))?;
         let mut was_empty = false;
@@ -1132,7 +1151,14 @@ impl Staging {
             // Checked again once it is out of the way (nothing can be added to it under its
             // old name any more): a folder that was empty when the run began may have been
             // given files since (someone saving to a shared drive); it is put back untouched.
-            match existing_output(&self.previous) {
+            // So is anything but a real folder: a folder moved elsewhere (to an archive) and a
+            // link left in its place is never followed to what it leads to.
+            let now = if fs::symlink_metadata(&self.previous).is_ok_and(|m| m.is_dir()) {
+                existing_output(&self.previous)
+            } else {
+                Err("it is no longer a folder but a symbolic link or a file".to_string())
+            };
+            match now {
                 Ok(Existing::Ours(..)) => {}
                 Ok(Existing::Empty) => was_empty = true,
                 Err(found) => {
@@ -1300,14 +1326,125 @@ fn remove_ours(dir: &Path, mark: &str) -> Result<(), StagingError> {
     match remove_marked_last(dir, mark) {
         Ok(()) => Ok(()),
         Err(e) if e.kind() == std::io::ErrorKind::NotFound && !dir.exists() => Ok(()),
-        Err(_) => {
-            make_owner_writable(dir);
-            remove_marked_last(dir, mark).map_err(io(dir))
-        }
+        Err(e) => Err(io(dir)(e)),
     }
 }
 
+/// Removes `dir` and everything in it, `mark` last, through handles: `dir` is opened once
+/// without following a link (`O_DIRECTORY | O_NOFOLLOW`), and every folder inside it relative
+/// to its parent's handle, so no link is ever followed, at the top either. Given a path, a
+/// `.NAME.previous` or `.NAME.staging` swapped for a link while a run went on (a folder moved
+/// to an archive and a link left in its place) had everything the link led to deleted: the
+/// archived output of an earlier month, or a user's folder, while the log said only that the
+/// link "could not be removed" ("Not a directory"). A link at `dir` is now an error and nothing
+/// is removed. A folder made read-only after the fact (by a user or a backup tool) is made
+/// writable for the owner, through its handle, before its entries are removed.
+#[cfg(unix)]
 fn remove_marked_last(dir: &Path, mark: &str) -> std::io::Result<()> {
+    use rustix::fs::{AtFlags, Mode, OFlags};
+    let flags = OFlags::RDONLY | OFlags::DIRECTORY | OFlags::NOFOLLOW | OFlags::CLOEXEC;
+    let fd = rustix::fs::open(dir, flags, Mode::empty()).map_err(|e| {
+        if fs::symlink_metadata(dir).is_ok_and(|m| m.file_type().is_symlink()) {
+            std::io::Error::other(
+                "it is a symbolic link, which is never followed nor removed: move it away",
+            )
+        } else {
+            e.into()
+        }
+    })?;
+    let mut writable = remove_entries_at(&fd, Some(mark))?;
+    unlink_at(&fd, mark, AtFlags::empty(), &mut writable)?;
+    drop(fd);
+    fs::remove_dir(dir)
+}
+
+/// Removes every entry of the folder open as `fd` but `keep`; folders inside are opened
+/// relative to it without following links (a link is removed as a file). Whether the folder
+/// was made writable on the way is returned.
+#[cfg(unix)]
+fn remove_entries_at(fd: &std::os::fd::OwnedFd, keep: Option<&str>) -> std::io::Result<bool> {
+    use rustix::fs::{AtFlags, FileType, Mode, OFlags};
+    let mut names = Vec::new();
+    for entry in rustix::fs::Dir::read_from(fd)? {
+        let entry = entry?;
+        let name = entry.file_name().to_owned();
+        let bytes = name.to_bytes();
+        if bytes == b"." || bytes == b".." || keep.is_some_and(|k| k.as_bytes() == bytes) {
+            continue;
+        }
+        names.push(name);
+    }
+    let mut writable = false;
+    for name in names {
+        let st = rustix::fs::statat(fd, name.as_c_str(), AtFlags::SYMLINK_NOFOLLOW)?;
+        let is_dir = FileType::from_raw_mode(st.st_mode) == FileType::Directory;
+        if is_dir {
+            let flags = OFlags::RDONLY | OFlags::DIRECTORY | OFlags::NOFOLLOW | OFlags::CLOEXEC;
+            let sub = match rustix::fs::openat(fd, name.as_c_str(), flags, Mode::empty()) {
+                Ok(sub) => sub,
+                Err(rustix::io::Errno::ACCESS) => {
+                    // A folder without the owner's read permission (mode 000): given it, then
+                    // opened as above (a link put there meanwhile is still not followed).
+                    let mode = Mode::from_raw_mode(st.st_mode & 0o7777) | Mode::RWXU;
+                    rustix::fs::chmodat(fd, name.as_c_str(), mode, AtFlags::empty())?;
+                    rustix::fs::openat(fd, name.as_c_str(), flags, Mode::empty())?
+                }
+                Err(e) => return Err(e.into()),
+            };
+            remove_entries_at(&sub, None)?;
+        }
+        let how = if is_dir {
+            AtFlags::REMOVEDIR
+        } else {
+            AtFlags::empty()
+        };
+        unlink_at(fd, name.as_c_str(), how, &mut writable)?;
+    }
+    Ok(writable)
+}
+
+/// Removes the entry `name` of the folder open as `fd`; refused for want of access, the folder
+/// is made writable for the owner once (`writable` says whether it was) and it is tried again.
+/// One that is gone already is no error.
+#[cfg(unix)]
+fn unlink_at<P: rustix::path::Arg + Copy>(
+    fd: &std::os::fd::OwnedFd,
+    name: P,
+    how: rustix::fs::AtFlags,
+    writable: &mut bool,
+) -> std::io::Result<()> {
+    use rustix::io::Errno;
+    match rustix::fs::unlinkat(fd, name, how) {
+        Ok(()) | Err(Errno::NOENT) => Ok(()),
+        Err(Errno::ACCESS | Errno::PERM) if !*writable => {
+            make_owner_writable(fd)?;
+            *writable = true;
+            match rustix::fs::unlinkat(fd, name, how) {
+                Ok(()) | Err(Errno::NOENT) => Ok(()),
+                Err(e) => Err(e.into()),
+            }
+        }
+        Err(e) => Err(e.into()),
+    }
+}
+
+/// Gives the owner full access to the folder open as `fd` (a folder made read-only after the
+/// fact), through its handle.
+#[cfg(unix)]
+fn make_owner_writable(fd: &std::os::fd::OwnedFd) -> std::io::Result<()> {
+    let st = rustix::fs::fstat(fd)?;
+    let mode = rustix::fs::Mode::from_raw_mode(st.st_mode & 0o7777) | rustix::fs::Mode::RWXU;
+    rustix::fs::fchmod(fd, mode)?;
+    Ok(())
+}
+
+#[cfg(not(unix))]
+fn remove_marked_last(dir: &Path, mark: &str) -> std::io::Result<()> {
+    if fs::symlink_metadata(dir)?.file_type().is_symlink() {
+        return Err(std::io::Error::other(
+            "it is a symbolic link, which is never followed nor removed: move it away",
+        ));
+    }
     for entry in fs::read_dir(dir)? {
         let entry = entry?;
         if entry.file_name() == mark {
@@ -1327,26 +1464,6 @@ fn remove_marked_last(dir: &Path, mark: &str) -> std::io::Result<()> {
     }
     fs::remove_dir(dir)
 }
-
-#[cfg(unix)]
-fn make_owner_writable(dir: &Path) {
-    use std::os::unix::fs::PermissionsExt;
-    for entry in walkdir::WalkDir::new(dir)
-        .follow_links(false)
-        .into_iter()
-        .flatten()
-    {
-        if entry.file_type().is_dir()
-            && let Ok(meta) = entry.metadata()
-        {
-            let mode = meta.permissions().mode() | 0o700;
-            let _ = fs::set_permissions(entry.path(), fs::Permissions::from_mode(mode));
-        }
-    }
-}
-
-#[cfg(not(unix))]
-fn make_owner_writable(_dir: &Path) {}
 
 /// Creates the output's missing parent folders (`mkdir -p`, with the user's umask).
 fn create_parents(parent: &Path) -> Result<(), StagingError> {
@@ -1403,6 +1520,45 @@ fn create_dir(p: &Path, access: Access) -> Result<(), StagingError> {
 #[cfg(not(unix))]
 fn create_dir(p: &Path, _access: Access) -> Result<(), StagingError> {
     fs::create_dir_all(p).map_err(io(p))
+}
+
+/// Makes folder `p` (its parent exists) with the mode of `access`, whatever the umask; fails
+/// when anything, a link included, is at its name already.
+fn create_new_dir(p: &Path, access: Access) -> Result<(), StagingError> {
+    let mut builder = fs::DirBuilder::new();
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::{DirBuilderExt, PermissionsExt};
+        builder.mode(access.dir_mode());
+        builder.create(p).map_err(io(p))?;
+        fs::set_permissions(p, fs::Permissions::from_mode(access.dir_mode())).map_err(io(p))
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = access;
+        builder.create(p).map_err(io(p))
+    }
+}
+
+/// What tells a folder from another one put at its name (device and inode), read without
+/// following a link: a link, or anything but a folder, is an error.
+#[cfg(unix)]
+type FolderId = (u64, u64);
+#[cfg(not(unix))]
+type FolderId = ();
+
+fn folder_id(p: &Path) -> std::io::Result<FolderId> {
+    let m = fs::symlink_metadata(p)?;
+    if !m.is_dir() {
+        return Err(std::io::Error::other("not a folder"));
+    }
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        Ok((m.dev(), m.ino()))
+    }
+    #[cfg(not(unix))]
+    Ok(())
 }
 
 /// Makes file `p` with the mode of `access`, whatever the umask (see [`create_dir`]).
@@ -1802,5 +1958,122 @@ mod tests {
         write_output(&target);
         assert!(!previous.exists());
         assert_eq!(fs::read_dir(&out).unwrap().count(), 61);
+    }
+
+    /// The staging side of [`write_output`]: a staging folder holding 60 reports and a
+    /// manifest that lists them, not yet put in place.
+    fn staged_output(target: &OutputTarget) -> Staging {
+        let staging = Staging::begin(target, Access::Owner).unwrap();
+        for i in 0..60 {
+            staging
+                .write(&format!("f{i:02}/report.html"), b"x")
+                .unwrap();
+        }
+        let outputs: Vec<_> = staging
+            .files()
+            .iter()
+            .map(|f| serde_json::json!({ "path": f.path }))
+            .collect();
+        let manifest = serde_json::json!({
+            "tool": "cohortpress test",
+            "program_id": "p",
+            "outputs": outputs,
+        });
+        staging
+            .write(MANIFEST, manifest.to_string().as_bytes())
+            .unwrap();
+        staging
+    }
+
+    /// Every file under `dir`, as a sorted list of relative paths.
+    #[cfg(unix)]
+    fn tree(dir: &Path) -> Vec<String> {
+        let mut v: Vec<String> = walkdir::WalkDir::new(dir)
+            .min_depth(1)
+            .into_iter()
+            .map(|e| {
+                let e = e.unwrap();
+                e.path().strip_prefix(dir).unwrap().display().to_string()
+            })
+            .collect();
+        v.sort();
+        v
+    }
+
+    /// An output folder moved to an archive while a run went on, with a link left in its
+    /// place (release run, attack24): the commit moved the link aside as `.out.previous`, read
+    /// the archived output through it as "ours", and removed everything the link led to (the
+    /// log said only that `.out.previous` "could not be removed yet: Not a directory"). Now
+    /// the link is put back untouched, the run fails, and the archive keeps all its files.
+    #[cfg(unix)]
+    #[test]
+    fn an_output_folder_swapped_for_a_link_is_never_followed_to_be_removed() {
+        let tmp = tempfile::tempdir().unwrap();
+        let (target, out) = target_in(tmp.path());
+        write_output(&target);
+        let staging = staged_output(&target);
+        let archive = tmp.path().join("archive");
+        fs::create_dir(&archive).unwrap();
+        fs::rename(&out, archive.join("may")).unwrap();
+        std::os::unix::fs::symlink("archive/may", &out).unwrap();
+        let before = tree(&archive);
+        assert_eq!(
+            before.len(),
+            1 + 60 + 60 + 1,
+            "may, 60 folders, 60 reports, a manifest"
+        );
+        let err = staging.commit().unwrap_err().to_string();
+        assert!(err.contains("no longer a folder"), "{err}");
+        assert_eq!(tree(&archive), before, "the archived output is whole");
+        assert!(fs::symlink_metadata(&out).unwrap().file_type().is_symlink());
+        assert!(!tmp.path().join(".out.previous").exists());
+    }
+
+    /// A staging folder swapped for a link while the run went on: given a path, the removal
+    /// of a failed or interrupted run's staging folder (SIGTERM) followed the link and removed
+    /// everything in the folder it led to (a user's notes; release run, attack24), and a
+    /// commit would have put the link in place as the output. Now neither follows it: the
+    /// commit refuses a staging folder that is not the one the run made, and the removal
+    /// refuses a link, so the linked folder keeps its files.
+    #[cfg(unix)]
+    #[test]
+    fn a_staging_folder_swapped_for_a_link_is_never_followed() {
+        let tmp = tempfile::tempdir().unwrap();
+        let (target, _out) = target_in(tmp.path());
+        let docs = tmp.path().join("docs");
+        fs::create_dir(&docs).unwrap();
+        for i in 0..3 {
+            fs::write(docs.join(format!("note{i}.txt")), "kept").unwrap();
+        }
+        let staging = staged_output(&target);
+        let dir = tmp.path().join(".out.staging");
+        fs::rename(&dir, tmp.path().join("moved")).unwrap();
+        std::os::unix::fs::symlink("docs", &dir).unwrap();
+        let err = staging.commit().unwrap_err().to_string();
+        assert!(err.contains("staging folder was replaced"), "{err}");
+        assert_eq!(tree(&docs), ["note0.txt", "note1.txt", "note2.txt"]);
+        // An interrupt's removal and a failed run's drop take the same way.
+        let err = remove_ours(&dir, STAGING_MARKER).unwrap_err().to_string();
+        assert!(err.contains("symbolic link"), "{err}");
+        assert_eq!(tree(&docs), ["note0.txt", "note1.txt", "note2.txt"]);
+        assert!(fs::symlink_metadata(&dir).unwrap().file_type().is_symlink());
+    }
+
+    /// Folders made read-only after the fact (a backup tool, `chmod -R a-w`), down to mode
+    /// 000, are still removed whole when they are ours, through their handles.
+    #[cfg(unix)]
+    #[test]
+    fn a_previous_output_made_read_only_is_removed_whole() {
+        use std::os::unix::fs::PermissionsExt;
+        let tmp = tempfile::tempdir().unwrap();
+        let (target, out) = target_in(tmp.path());
+        write_output(&target);
+        fs::set_permissions(out.join("f03"), fs::Permissions::from_mode(0o000)).unwrap();
+        fs::set_permissions(out.join("f07"), fs::Permissions::from_mode(0o500)).unwrap();
+        fs::set_permissions(&out, fs::Permissions::from_mode(0o500)).unwrap();
+        let moved = tmp.path().join("old");
+        fs::rename(&out, &moved).unwrap();
+        remove_ours(&moved, MANIFEST).unwrap();
+        assert!(!moved.exists());
     }
 }

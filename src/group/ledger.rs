@@ -823,7 +823,8 @@ fn fresh_key() -> [u8; 32] {
 /// overwritten.
 ///
 /// An error names the file being saved (`ledger.json`, the name the user knows) and says it
-/// was not changed: the temporary file's name alone read as if that were the ledger.
+/// was not changed: the temporary file's name alone read as if that were the ledger. A write
+/// that fails removes the temporary file.
 fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     let tmp = path.with_extension("tmp");
     let through = tmp.file_name().map_or_else(
@@ -841,17 +842,26 @@ fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
         Err(e) => return Err(err(e)),
     }
+    let mut options = std::fs::File::options();
+    options.write(true).create_new(true);
+    #[cfg(unix)]
     {
-        let mut options = std::fs::File::options();
-        options.write(true).create_new(true);
-        #[cfg(unix)]
-        {
-            use std::os::unix::fs::OpenOptionsExt;
-            options.mode(0o600);
-        }
-        let mut f = options.open(&tmp).map_err(err)?;
-        f.write_all(bytes).map_err(err)?;
-        f.sync_all().map_err(err)?;
+        use std::os::unix::fs::OpenOptionsExt;
+        options.mode(0o600);
     }
-    std::fs::rename(&tmp, path).map_err(err)
+    let mut f = options.open(&tmp).map_err(err)?;
+    // Once it is made, a write that fails (a full disk, a file-size limit) removes it: it was
+    // left behind, empty or cut short, beside the ledger it had not replaced.
+    let written = f
+        .write_all(bytes)
+        .and_then(|()| f.sync_all())
+        .and_then(|()| {
+            drop(f);
+            std::fs::rename(&tmp, path)
+        });
+    if let Err(e) = written {
+        let _ = std::fs::remove_file(&tmp);
+        return Err(err(e));
+    }
+    Ok(())
 }

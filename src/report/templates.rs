@@ -122,7 +122,7 @@ impl TemplateSet {
                 }
             }
         }
-        check_partial_cycles(&files)?;
+        check_render_depth(&files)?;
         let mut hb = Handlebars::new();
         hb.set_strict_mode(true);
         hb.set_prevent_indent(true);
@@ -285,11 +285,19 @@ fn override_level(
 /// directory loader follows links, which could pull any readable file into a report).
 fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, TemplateError> {
     let mut out = Vec::new();
+    let mut total = 0u64;
     for (name, path) in override_files(dir)? {
         // Opened without following links, regular files only (a link swapped in after the
-        // walk is still refused).
-        let text = crate::limits::read_input(&path)
-            .map_err(|e| e.to_string())
+        // walk is still refused); the folder's files together within MAX_TEMPLATE_BYTES.
+        let text = crate::limits::read_limited(&path, MAX_TEMPLATE_BYTES - total)
+            .map_err(|e| {
+                if crate::limits::is_over_limit(&e) {
+                    too_many_template_bytes()
+                } else {
+                    e.to_string()
+                }
+            })
+            .inspect(|b| total += b.len() as u64)
             .and_then(|b| String::from_utf8(b).map_err(|_| "the file is not UTF-8 text".into()))
             .map_err(|e| TemplateError::File(path.display().to_string(), e))?;
         if let Some((at, what)) = override_problem(&text) {
@@ -303,6 +311,23 @@ fn read_override_dir(dir: &Path) -> Result<Vec<(String, String, String)>, Templa
         out.push((name, text, path.display().to_string()));
     }
     Ok(out)
+}
+
+/// The most a program's template folder may hold, its `.hbs` files together (a program choice:
+/// about nine times the built-in set's 14 KiB). Handlebars takes time that grows with the square
+/// of a file's size to read it (each expression's position is counted from the file's start):
+/// a 64 KiB partial of `{{@a}}` took 2.6 s, a 1 MB one of `{{#if}}` blocks more than two minutes
+/// to load, and a file of the 64 MiB an input may have, days; at this limit a file made for it
+/// takes about ten seconds.
+pub const MAX_TEMPLATE_BYTES: u64 = 128 << 10;
+
+fn too_many_template_bytes() -> String {
+    format!(
+        "the template folder's `.hbs` files come to more than {}, the most a program's templates \
+         may hold (reading a template takes time that grows with the square of its size); keep \
+         only the templates you change in the folder, and shorten them",
+        crate::limits::human(MAX_TEMPLATE_BYTES)
+    )
 }
 
 /// Elements that run code, embed another document or send the page somewhere: never part of a
@@ -563,9 +588,38 @@ enum Needle {
     Attribute(String, Option<String>),
 }
 
+/// How deep elements may nest in a page a program's own templates made (a program choice:
+/// the built-in pages nest fewer than 20 deep). The page's text is read for the PDF and for the
+/// cautions by walking its elements, a call on the stack for each level: 5,000 nested `<div>`
+/// written in a template overflowed a worker thread's stack and aborted the run (exit code
+/// 134, no message).
+pub const MAX_ELEMENT_DEPTH: usize = 256;
+
 /// [`output_problem`], with the piece of the page's text that starts the problem.
 fn output_breach(html: &str) -> Option<(String, Needle)> {
     let page = scraper::Html::parse_document(html);
+    // Counted without recursion, before anything walks the page.
+    let mut depth = 0usize;
+    for edge in page.tree.root().traverse() {
+        match edge {
+            ego_tree::iter::Edge::Open(n) if n.value().is_element() => {
+                depth += 1;
+                if depth > MAX_ELEMENT_DEPTH {
+                    let name = n.value().as_element().map_or("", |e| e.name());
+                    return Some((
+                        format!(
+                            "nests elements more than {MAX_ELEMENT_DEPTH} deep (`<{name}>` at \
+                             that depth), more than a report page may: its text is read for the \
+                             PDF one level at a time; flatten the template"
+                        ),
+                        Needle::Element(name.to_ascii_lowercase()),
+                    ));
+                }
+            }
+            ego_tree::iter::Edge::Close(n) if n.value().is_element() => depth -= 1,
+            _ => {}
+        }
+    }
     for node in page.tree.nodes() {
         let scraper::Node::Element(e) = node.value() else {
             continue;
@@ -841,53 +895,204 @@ fn css_plain(css: &str) -> String {
     out.to_lowercase()
 }
 
-/// Partials that include each other (a → b → a) overflow the stack in handlebars: refuse them.
-fn check_partial_cycles(files: &[(String, String, String)]) -> Result<(), TemplateError> {
-    let includes = |text: &str| -> Vec<String> {
-        text.match_indices("{{>")
-            .filter_map(|(i, _)| {
-                let rest = text[i + 3..].trim_start();
-                let name: String = rest
-                    .chars()
-                    .take_while(|c| c.is_alphanumeric() || *c == '_' || *c == '-')
-                    .collect();
-                (!name.is_empty()).then_some(name)
-            })
-            .collect()
-    };
-    let partial = |name: &str| {
-        files.iter().find(|(n, _, _)| {
-            n.strip_prefix("partials/")
-                .and_then(|n| n.strip_suffix(".hbs"))
-                == Some(name)
+/// How deep blocks (`{{#if}}`, `{{#each}}` …) and partial calls may nest when a page is
+/// rendered, counted through every partial a template calls (a program choice: the built-in
+/// templates nest fewer than 10 deep). Each level is a handlebars call on the stack: a partial
+/// of 2,000 nested `{{#if}}` overflowed a worker thread's stack and aborted the run (exit code
+/// 134, no message), and an inline partial that calls itself did so at any depth.
+pub const MAX_RENDER_DEPTH: usize = 64;
+
+/// Refuses templates whose rendering would nest deeper than [`MAX_RENDER_DEPTH`], partials
+/// that call each other in a loop (a → b → a, which never ends), and partials named by an
+/// expression (which of them is called, and how deep it nests, depends on the data). Read from
+/// the parsed templates, so every way of calling a partial counts: `{{> name}}`, `{{~> name}}`,
+/// `{{#> name}}…{{/name}}`, and inline partials (`{{#*inline "name"}}…{{/inline}}`). A text
+/// scan for `{{>` missed all but the first, and an inline partial calling itself overflowed
+/// the stack. A file that does not parse is left to its registration, which says why.
+fn check_render_depth(files: &[(String, String, String)]) -> Result<(), TemplateError> {
+    use handlebars::template::{Template, TemplateElement};
+    use std::collections::HashMap;
+    // Partials first, so that a partial nested too deep is named itself rather than the page
+    // that calls it.
+    let mut ordered: Vec<&(String, String, String)> = files.iter().collect();
+    ordered.sort_by_key(|(name, ..)| !name.starts_with("partials/"));
+    let parsed: Vec<(String, Template)> = ordered
+        .into_iter()
+        .filter_map(|(name, text, _)| {
+            let key = name.trim_end_matches(".hbs");
+            let key = key.strip_prefix("partials/").unwrap_or(key);
+            Template::compile(text).ok().map(|t| (key.to_string(), t))
         })
-    };
-    type Entry = (String, String, String);
-    fn visit<'a>(
-        name: &str,
-        stack: &mut Vec<String>,
-        partial: &dyn Fn(&str) -> Option<&'a Entry>,
-        includes: &dyn Fn(&str) -> Vec<String>,
-    ) -> Result<(), TemplateError> {
-        if stack.iter().any(|s| s == name) {
-            stack.push(name.to_string());
-            return Err(TemplateError::Cycle(stack.join(" → ")));
-        }
-        if let Some((_, text, _)) = partial(name) {
-            stack.push(name.to_string());
-            for inc in includes(text) {
-                visit(&inc, stack, partial, includes)?;
+        .collect();
+    // Every body a name can stand for: the file registered under it and the inline partials
+    // defined under it anywhere (an inline partial shadows a file's only where it is defined;
+    // counting all of them is the safe side).
+    let mut bodies: HashMap<String, Vec<&Template>> = HashMap::new();
+    fn inline_definitions<'a>(
+        t: &'a Template,
+        out: &mut Vec<(Result<String, String>, &'a Template)>,
+    ) {
+        for e in &t.elements {
+            match e {
+                TemplateElement::DecoratorBlock(d) | TemplateElement::DecoratorExpression(d) => {
+                    if let Some(body) = &d.template {
+                        if partial_name(&d.name).as_deref() == Ok("inline") {
+                            let name = match d.params.first() {
+                                Some(handlebars::template::Parameter::Literal(
+                                    serde_json::Value::String(n),
+                                )) => Ok(n.clone()),
+                                _ => Err("an inline partial named by an expression".to_string()),
+                            };
+                            out.push((name, body));
+                        }
+                        inline_definitions(body, out);
+                    }
+                }
+                TemplateElement::HelperBlock(h) => {
+                    for body in h.template.iter().chain(h.inverse.iter()) {
+                        inline_definitions(body, out);
+                    }
+                }
+                TemplateElement::PartialBlock(d) | TemplateElement::PartialExpression(d) => {
+                    if let Some(body) = &d.template {
+                        inline_definitions(body, out);
+                    }
+                }
+                _ => {}
             }
-            stack.pop();
         }
-        Ok(())
     }
-    for (_, text, _) in files {
-        for inc in includes(text) {
-            visit(&inc, &mut Vec::new(), &partial, &includes)?;
+    for (key, t) in &parsed {
+        bodies.entry(key.clone()).or_default().push(t);
+        let mut inline = Vec::new();
+        inline_definitions(t, &mut inline);
+        for (name, body) in inline {
+            let name = name.map_err(|what| dynamic_partial(key, &what))?;
+            bodies.entry(name).or_default().push(body);
+        }
+    }
+    struct Walk<'a> {
+        bodies: &'a HashMap<String, Vec<&'a Template>>,
+        depth_of: HashMap<String, usize>,
+        stack: Vec<String>,
+        file: String,
+    }
+    impl Walk<'_> {
+        /// The deepest nesting of blocks and partial calls rendering `t` reaches.
+        fn depth(&mut self, t: &Template) -> Result<usize, TemplateError> {
+            let mut deepest = 0;
+            for e in &t.elements {
+                let d = match e {
+                    TemplateElement::HelperBlock(h) => {
+                        let mut inner = 0;
+                        for body in h.template.iter().chain(h.inverse.iter()) {
+                            inner = inner.max(self.depth(body)?);
+                        }
+                        1 + inner
+                    }
+                    // An inline partial's body is rendered where it is called.
+                    TemplateElement::DecoratorBlock(d)
+                        if partial_name(&d.name).as_deref() == Ok("inline") =>
+                    {
+                        0
+                    }
+                    TemplateElement::DecoratorBlock(d) => match &d.template {
+                        Some(body) => 1 + self.depth(body)?,
+                        None => 1,
+                    },
+                    TemplateElement::PartialExpression(d) | TemplateElement::PartialBlock(d) => {
+                        let name = partial_name(&d.name)
+                            .map_err(|what| dynamic_partial(&self.file, &what))?;
+                        // `{{> @partial-block}}` renders its caller's block, counted there.
+                        let called = if name == "@partial-block" {
+                            0
+                        } else {
+                            self.node(&name)?
+                        };
+                        let block = match &d.template {
+                            Some(body) => self.depth(body)?,
+                            None => 0,
+                        };
+                        1 + called + block
+                    }
+                    _ => 0,
+                };
+                deepest = deepest.max(d);
+            }
+            Ok(deepest)
+        }
+
+        /// The deepest nesting the partial (or template) `name` reaches; a name on the way
+        /// to itself is a loop.
+        fn node(&mut self, name: &str) -> Result<usize, TemplateError> {
+            if let Some(&d) = self.depth_of.get(name) {
+                return Ok(d);
+            }
+            if let Some(at) = self.stack.iter().position(|s| s == name) {
+                let mut path = self.stack[at..].to_vec();
+                path.push(name.to_string());
+                return Err(TemplateError::Cycle(path.join(" → ")));
+            }
+            let Some(bodies) = self.bodies.get(name) else {
+                // Not a partial of the set: the render says so (strict mode).
+                return Ok(0);
+            };
+            self.stack.push(name.to_string());
+            let mut deepest = 0;
+            for body in bodies.clone() {
+                deepest = deepest.max(self.depth(body)?);
+            }
+            self.stack.pop();
+            self.depth_of.insert(name.to_string(), deepest);
+            Ok(deepest)
+        }
+    }
+    let mut walk = Walk {
+        bodies: &bodies,
+        depth_of: HashMap::new(),
+        stack: Vec::new(),
+        file: String::new(),
+    };
+    for (key, _) in &parsed {
+        walk.file = key.clone();
+        let depth = walk.node(key)?;
+        if depth > MAX_RENDER_DEPTH {
+            return Err(TemplateError::Parse(format!(
+                "{}: blocks and partials nest {depth} deep when it is rendered, more than the \
+                 {MAX_RENDER_DEPTH} a report template may (each level is a call on the stack \
+                 of the thread that renders it); flatten it",
+                files
+                    .iter()
+                    .find(|(n, ..)| {
+                        let k = n.trim_end_matches(".hbs");
+                        k.strip_prefix("partials/").unwrap_or(k) == key
+                    })
+                    .map_or(key.as_str(), |(_, _, src)| src.as_str())
+            )));
         }
     }
     Ok(())
+}
+
+/// The name of a partial call or a decorator as written (`{{> kv}}`, `{{> "kv"}}`,
+/// `{{> partials/kv}}`), or `Err` with what it is when an expression computes it.
+fn partial_name(p: &handlebars::template::Parameter) -> Result<String, String> {
+    use handlebars::template::Parameter;
+    match p {
+        Parameter::Name(n) => Ok(n.clone()),
+        Parameter::Path(handlebars::Path::Relative((_, raw)))
+        | Parameter::Path(handlebars::Path::Local((_, _, raw))) => Ok(raw.clone()),
+        Parameter::Literal(serde_json::Value::String(s)) => Ok(s.clone()),
+        Parameter::Literal(other) => Ok(other.to_string()),
+        _ => Err("a partial named by an expression".to_string()),
+    }
+}
+
+fn dynamic_partial(file: &str, what: &str) -> TemplateError {
+    TemplateError::Parse(format!(
+        "{file}: {what} (`{{{{> (…)}}}}`) is not allowed in a report template: which partial it \
+         calls would depend on the data; name the partial"
+    ))
 }
 
 fn register_helpers(hb: &mut Handlebars<'static>) {

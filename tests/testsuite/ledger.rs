@@ -1967,3 +1967,45 @@ fn triple_september_activity(t: &ProgramTest, n: usize) {
         std::fs::write(&p, fixed.join("\n") + "\n").unwrap();
     }
 }
+
+/// A ledger that cannot be saved for a full disk left its temporary file, `ledger.tmp`, empty
+/// beside the ledger it had not replaced (release run on a 12 MiB tmpfs, attack24). The write
+/// that fails now removes it; the ledger and the previous output are as they were.
+#[test]
+fn a_ledger_write_that_fails_leaves_no_temporary_file() {
+    let t = ProgramTest::fixture("report-small");
+    let base = t.dir.parent().unwrap().to_path_buf();
+    let mnt = base.join("mnt");
+    std::fs::create_dir(&mnt).unwrap();
+    let Some(_tmpfs) = crate::harness::Tmpfs::mount(&mnt) else {
+        return;
+    };
+    let state = mnt.join("ledger");
+    let state_s = state.to_string_lossy().into_owned();
+    let run = |period: &str| {
+        t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            AS_OF,
+            "--period",
+            period,
+            "--formats",
+            "html",
+            "--state",
+            &state_s,
+        ])
+    };
+    assert_eq!(run("2026-08").code, 0);
+    let recorded = std::fs::read(state.join("ledger.json")).unwrap();
+    // The rest of the file system filled.
+    let mut filler = std::fs::File::create(mnt.join("filler")).unwrap();
+    let block = vec![0u8; 1 << 20];
+    while std::io::Write::write_all(&mut filler, &block).is_ok() {}
+    drop(filler);
+    let o = run("2026-09");
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(o.stderr.contains("No space left on device"), "{}", o.stderr);
+    assert!(!state.join("ledger.tmp").exists(), "{}", o.stderr);
+    assert_eq!(std::fs::read(state.join("ledger.json")).unwrap(), recorded);
+}

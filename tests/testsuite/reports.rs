@@ -1425,6 +1425,148 @@ fn templates_written_before_stacked_tables_still_render_as_tables() {
     }
 }
 
+/// Writes `files` (path in the folder, text) into a new template folder and loads it.
+fn load_templates(files: &[(&str, &str)]) -> Result<TemplateSet, String> {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::create_dir(dir.path().join("partials")).unwrap();
+    for (name, text) in files {
+        std::fs::write(dir.path().join(name), text).unwrap();
+    }
+    TemplateSet::with_overrides(Some(dir.path())).map_err(|e| e.to_string())
+}
+
+/// Partials that call themselves other than by `{{> name}}` were not seen by the loop check (a
+/// text scan for `{{>`): an inline partial that calls itself, `{{~> a}}`, a partial block
+/// `{{#> a}}…{{/a}}`, and the template aborted `check` and `run` with a stack overflow (exit
+/// code 134, no message; attack24). They are refused as loops when the folder is loaded, as is
+/// a partial whose name an expression computes.
+#[test]
+fn every_way_of_calling_a_partial_counts_toward_a_loop() {
+    for (files, says) in [
+        (
+            vec![(
+                "participant.html.hbs",
+                "{{#*inline \"zz\"}}<b>{{> zz}}</b>{{/inline}}{{> zz}}",
+            )],
+            "zz → zz",
+        ),
+        (
+            vec![
+                ("partials/a.hbs", "A {{~> b}}"),
+                ("partials/b.hbs", "B {{~> a~}}"),
+            ],
+            "loop",
+        ),
+        (
+            vec![
+                ("partials/a.hbs", "A {{#> b}}x{{/b}}"),
+                ("partials/b.hbs", "B {{> a}}"),
+            ],
+            "loop",
+        ),
+        (
+            vec![("partials/a.hbs", "{{> (lookup this \"which\")}}")],
+            "named by an expression",
+        ),
+    ] {
+        let err = load_templates(&files).err().expect("refused");
+        assert!(err.contains(says), "{files:?}: {err}");
+    }
+}
+
+/// Blocks and partials nested 2,000 deep overflowed a worker thread's stack while the page was
+/// rendered (exit code 134; attack24). Nesting is counted through the partials a template calls
+/// and refused past `MAX_RENDER_DEPTH`; the built-in templates nest far less.
+#[test]
+fn templates_nested_too_deep_are_refused_when_they_load() {
+    use cohortpress::report::templates::MAX_RENDER_DEPTH;
+    let nested = |n: usize| format!("{}x{}", "{{#if a}}".repeat(n), "{{/if}}".repeat(n));
+    // One level for the call of the partial, the rest in it.
+    let fits = nested(MAX_RENDER_DEPTH - 1);
+    let page = ("participant.html.hbs", "{{> cautions}}{{> deep}}");
+    assert!(load_templates(&[page, ("partials/deep.hbs", &fits)]).is_ok());
+    let err = load_templates(&[page, ("partials/deep.hbs", &nested(MAX_RENDER_DEPTH))])
+        .err()
+        .expect("refused");
+    let deeper = format!("nest {} deep", MAX_RENDER_DEPTH + 1);
+    assert!(
+        err.contains(&deeper) && err.contains("participant.html.hbs"),
+        "{err}"
+    );
+    // A partial too deep on its own is named itself.
+    let err = load_templates(&[page, ("partials/deep.hbs", &nested(2_000))])
+        .err()
+        .expect("refused");
+    assert!(
+        err.contains("nest 2000 deep") && err.contains("deep.hbs"),
+        "{err}"
+    );
+    // The same depth reached through a chain of partials, each a block deep.
+    let mut chain: Vec<(String, String)> = (0..MAX_RENDER_DEPTH)
+        .map(|i| {
+            (
+                format!("partials/p{i}.hbs"),
+                format!("{{{{#if a}}}}{{{{> p{}}}}}{{{{/if}}}}", i + 1),
+            )
+        })
+        .collect();
+    chain.push(("partials/p{MAX_RENDER_DEPTH}.hbs".into(), "x".into()));
+    let files: Vec<(&str, &str)> = chain
+        .iter()
+        .map(|(a, b)| (a.as_str(), b.as_str()))
+        .collect();
+    let err = load_templates(&files).err().expect("refused");
+    assert!(err.contains("deep"), "{err}");
+    // The built-in set, dumped as a folder of overrides, loads.
+    assert!(load_templates(&[]).is_ok());
+}
+
+/// A page its template nested 5,000 elements deep (`<div>` in a partial) overflowed a worker
+/// thread's stack when its text was read for the PDF and the cautions (exit code 134;
+/// attack24). Such a page is refused when it is made, like a page with a script.
+#[test]
+fn a_page_nested_too_deep_is_refused_when_it_is_made() {
+    use cohortpress::report::templates::MAX_ELEMENT_DEPTH;
+    // `<html>` and `<body>` are two levels of every page.
+    let page = |n: usize| format!("{}x{}", "<div>".repeat(n), "</div>".repeat(n));
+    let ctx = serde_json::json!({});
+    let set = load_templates(&[("participant.html.hbs", &page(MAX_ELEMENT_DEPTH - 2))]).unwrap();
+    assert!(
+        set.render("participant.html", &ctx, serde_json::Map::new())
+            .is_ok()
+    );
+    let set = load_templates(&[("participant.html.hbs", &page(5_000))]).unwrap();
+    let err = set
+        .render("participant.html", &ctx, serde_json::Map::new())
+        .expect_err("refused")
+        .to_string();
+    assert!(
+        err.contains(&format!("more than {MAX_ELEMENT_DEPTH} deep")),
+        "{err}"
+    );
+}
+
+/// Handlebars reads a template in time that grows with the square of its size: a 1 MB partial
+/// of `{{#if}}` blocks took more than two minutes to load, and a template could be as large as
+/// a CSV input, 64 MiB (attack24). A template folder holds at most `MAX_TEMPLATE_BYTES`.
+#[test]
+fn a_template_folder_over_its_size_limit_is_refused_before_it_is_read() {
+    use cohortpress::report::templates::MAX_TEMPLATE_BYTES;
+    let half = "x".repeat(MAX_TEMPLATE_BYTES as usize / 2);
+    assert!(load_templates(&[("partials/a.hbs", &half)]).is_ok());
+    let err = load_templates(&[
+        ("partials/a.hbs", &half),
+        ("partials/b.hbs", &half),
+        ("partials/c.hbs", "y"),
+    ])
+    .err()
+    .expect("refused");
+    assert!(
+        err.contains("partials/c.hbs") && err.contains("128 KiB"),
+        "{err}"
+    );
+}
+
 #[test]
 fn partials_that_include_each_other_are_refused() {
     let dir = tempfile::tempdir().unwrap();
