@@ -25,7 +25,8 @@ pub struct TidyParticipant {
     /// What the withdrawal was (`consent` or `stopped_program`, profile.yaml's
     /// `withdrawal_reason`), beside `withdrew` and empty with it.
     pub withdrawal_reason: Option<String>,
-    /// Has a baseline weight: counted in the group report's intention-to-treat denominator
+    /// Has a baseline weight: counted in the group report's modified intention-to-treat
+    /// denominator
     /// (false when the group report leaves the participant out: their weigh-ins are another
     /// folder's; set when the file is written).
     pub started: bool,
@@ -682,7 +683,7 @@ pub fn datapackage(
         DpField::required(
             "started",
             "boolean",
-            "has a baseline weight (a weigh-in on or after enrolment): counted in the group report's intention-to-treat denominator (false for a participant the group report leaves out because their weigh-ins are another participant folder's; see data-quality.csv)",
+            "has a baseline weight (a weigh-in on or after enrolment): counted in the group report's modified intention-to-treat denominator (false for a participant the group report leaves out because their weigh-ins are another participant folder's; see data-quality.csv)",
         ),
         DpField::required(
             "completer",

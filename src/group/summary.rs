@@ -2,7 +2,9 @@
 //!
 //! Definitions used throughout (also carried in the report as [`Methods`] text):
 //! - *enrolled*: rows with `enrolled = true` (other rows are ignored); *active* = enrolled and
-//!   not withdrawn; *started* = has a baseline weight (the ITT denominator); *with outcome* =
+//!   not withdrawn; *started* = has a baseline weight (the denominator of the modified
+//!   intention-to-treat figures: someone enrolled without a weigh-in has no baseline, and the
+//!   count of such people, `not_started`, is printed beside it); *with outcome* =
 //!   started and has an outcome weight at the time point; *retained* = started and not
 //!   withdrawn by the period's end, *discontinued* = started and withdrawn by then.
 //!   Retention = retained / started: the share of those who started who are still in the
@@ -184,8 +186,20 @@ impl Methods {
     fn new(min: u32, confidence: f64) -> Self {
         let c = confidence * 100.0;
         Methods {
-            itt_denominator: "Intention to treat: everyone enrolled who has a baseline weight \
-                              (started)."
+            // A modified intention-to-treat set, and named so: an analysis of every
+            // participant as enrolled needs an outcome (observed or imputed) for each, and
+            // someone enrolled without any weigh-in has no baseline from which a change could
+            // be measured or carried forward. ICH E9 (1998, §5.2.1) lets the full analysis set
+            // leave out those without any data after randomisation; CONSORT 2010 (items 13b
+            // and 16) asks for the number left out of each analysis, and why (both from
+            // memory).
+            itt_denominator: "Modified intention to treat: everyone enrolled who has a \
+                              baseline weight (started). Someone enrolled without any weigh-in \
+                              has no baseline, so no change can be measured or carried forward \
+                              for them: they are outside the weight-change and milestone \
+                              figures, and their number is the enrolment table's “Enrolled \
+                              without a baseline weight”, shown or hidden by the same \
+                              small-cell rules as every count."
                 .into(),
             // CONSORT 2010 flow diagram (Schulz KF et al., BMJ 2010;340:c332): of those
             // allocated, "discontinued intervention" and "lost to follow-up" are counted apart.

@@ -293,6 +293,11 @@ pub(crate) fn build_with(
                 }
             },
         };
+        let given = if def.command.is_none() && id == "energy" {
+            walk_cap_passed(program, given, &mut diags)
+        } else {
+            given
+        };
         let settings = match spec.resolve_settings(&given) {
             Ok(s) => Some(s),
             Err(problems) => {
@@ -518,6 +523,64 @@ fn underweight_agrees(program: &Program, entries: &[Entry], diags: &mut Vec<Diag
             None => d,
         });
     }
+}
+
+/// The most extra walking an option may ask for is one setting: the program's
+/// `guidance.max_walk_minutes` is passed to the `energy` module as its `max_walk_minutes`, so
+/// the module's options table (`metrics/tables.csv`) and the report's guidance call the same
+/// walks feasible. The module's own cap (120 min/d) and the guidance's (60) differed: a walk of
+/// 88 minutes a day was `feasible` in the tidy options while the report never offered it
+/// (sample program, September 2026, SG-004). Set in both places to different values, it is an
+/// error at the `guidance:` key.
+fn walk_cap_passed(
+    program: &Program,
+    mut given: serde_json::Value,
+    diags: &mut Vec<Diagnostic>,
+) -> serde_json::Value {
+    let Some(g) = program.def.guidance.max_walk_minutes else {
+        return given;
+    };
+    if given.is_null() {
+        given = serde_json::json!({});
+    }
+    let Some(map) = given.as_object_mut() else {
+        return given;
+    };
+    match map.get("max_walk_minutes").map(|v| v.as_f64()) {
+        None => {
+            map.insert("max_walk_minutes".into(), serde_json::json!(g));
+        }
+        Some(Some(e)) if e != g => {
+            let d = Diagnostic::error(
+                "program.yaml",
+                format!(
+                    "`guidance.max_walk_minutes` ({g}) differs from the `energy` module's \
+                     `max_walk_minutes` ({e})"
+                ),
+            )
+            .field("guidance.max_walk_minutes")
+            .expected(format!(
+                "the energy module's cap ({e}), or one of the two only"
+            ))
+            .found(g.to_string())
+            .hint(
+                "the report's options and the energy module's options table use one walking \
+                 cap: set it in one place",
+            );
+            diags.push(
+                match crate::program::load::key_position(
+                    &program.source,
+                    "guidance.max_walk_minutes",
+                ) {
+                    Some((line, column)) => d.at(line, column),
+                    None => d,
+                },
+            );
+        }
+        // Equal, or not a number (resolve_settings reports that at the module's key).
+        Some(_) => {}
+    }
+    given
 }
 
 enum External {

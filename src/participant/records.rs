@@ -1552,7 +1552,7 @@ struct RawIntake {
 
 /// Labels of a food diary's row that totals the day's other rows (in a column of its own, such
 /// as `Meal`).
-const TOTAL_LABELS: [&str; 7] = [
+const TOTAL_LABELS: [&str; 14] = [
     "total",
     "totals",
     "daily total",
@@ -1560,6 +1560,14 @@ const TOTAL_LABELS: [&str; 7] = [
     "sum",
     "summe",
     "gesamt",
+    // The same in the other languages of [`SUMMARY_LABELS`].
+    "somme",
+    "suma",
+    "totale",
+    "somma",
+    "soma",
+    "totaal",
+    "totalt",
 ];
 
 /// How far a day's `Total` row may be from the sum of its other rows and still be their total:
@@ -2285,7 +2293,16 @@ pub fn parse_activity(
             "durations with one colon read as minutes:seconds, as `{raw}` shows (as hours:minutes it would be longer than an activity can last)"
         )
     });
+    // A phone's export lists each day's step count in a row of its own beside the day's
+    // workouts: such a row is no activity, and is noted, not warned about (each was "`activity`
+    // is empty", every run ending with warnings). In a file with no workout at all, nothing
+    // would be read: its rows keep their warnings.
+    let workouts = table.rows.iter().any(|r| table.gives_workout(r));
     let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
+        if workouts && c.table.is_step_count(c.row) {
+            c.table.step_count_row(c.row);
+            return None;
+        }
         let activity = c.required_text("activity", d)?;
         // A log's `Total` row is no activity: with a `met` value it was added to the day's
         // activities as one more.
@@ -2923,7 +2940,29 @@ pub fn parse_labs(
             };
             let canonical = convert(value);
             let (lo, hi) = lab_range(test);
-            if !(lo..=hi).contains(&canonical) {
+            // `<0.5 mmol/L`, `<2.5 %`: an assay's lower limit below the range a value may
+            // plausibly take. The bound is true whatever the value (it lies below a limit below
+            // the range), so it is kept as the bound it is, as a `<` bound within the range is,
+            // and raises no flag (no cut-off of ours lies below the range); it was dropped as
+            // an implausible value, and with it the only record of the test.
+            let low_bound = matches!(censored, Some(Censor::Below | Censor::AtMost));
+            if low_bound && canonical < lo {
+                d.push(
+                    c.warn(
+                        "value",
+                        format!(
+                            "`{name}` bound below the plausible range; kept as the bound it is \
+                             ({} {} {}), with no flag",
+                            censored.map_or("<", Censor::symbol),
+                            num.trim(),
+                            unit,
+                        ),
+                    )
+                    .expected(format!("{lo} to {hi} {}", test.canonical_unit()))
+                    .found(format!("`{raw}`"))
+                    .hint("check the laboratory's report for the limit of the assay"),
+                );
+            } else if !(lo..=hi).contains(&canonical) {
                 d.push(
                     c.warn(
                         "value",

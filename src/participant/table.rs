@@ -234,6 +234,9 @@ pub struct Table {
     /// Rows with a date and nothing recorded (see [`Table::is_unfilled`]): how many, and the
     /// first one's line.
     unfilled_rows: Cell<(usize, u64)>,
+    /// An activity file's rows that give only a step count (see [`Table::is_step_count`]):
+    /// how many, and the first one's line.
+    step_count_rows: Cell<(usize, u64)>,
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
     /// the file's note.
     recognised: RefCell<std::collections::BTreeSet<std::borrow::Cow<'static, str>>>,
@@ -279,6 +282,36 @@ impl Table {
     pub fn unfilled_row(&self, row: &Row) {
         let (n, first) = self.unfilled_rows.get();
         self.unfilled_rows.set((
+            n + 1,
+            if n == 0 {
+                row.line
+            } else {
+                first.min(row.line)
+            },
+        ));
+    }
+
+    /// Whether `row` of an activity file gives a step count and no activity: its `steps` holds
+    /// a value while its `activity`, `minutes`, `met` and `end` are empty or placeholders, as a
+    /// phone's export lists each day's steps in a row of its own beside the day's workouts.
+    pub fn is_step_count(&self, row: &Row) -> bool {
+        let blank = |c: &str| self.get(row, c).is_none_or(is_placeholder);
+        self.get(row, "steps").is_some_and(|s| !is_placeholder(s))
+            && ["activity", "minutes", "met", "end"].into_iter().all(blank)
+    }
+
+    /// Whether `row` of an activity file names an activity or a duration (a workout, even one
+    /// whose other values fail).
+    pub fn gives_workout(&self, row: &Row) -> bool {
+        ["activity", "minutes"]
+            .into_iter()
+            .any(|c| self.get(row, c).is_some_and(|s| !is_placeholder(s)))
+    }
+
+    /// Counts `row` as one that gives only a step count, for the file's note.
+    pub fn step_count_row(&self, row: &Row) {
+        let (n, first) = self.step_count_rows.get();
+        self.step_count_rows.set((
             n + 1,
             if n == 0 {
                 row.line
@@ -403,6 +436,7 @@ impl Table {
             date_rows_in: None,
             summary_rows: RefCell::new((0, None)),
             unfilled_rows: Cell::new((0, 0)),
+            step_count_rows: Cell::new((0, 0)),
             recognised: RefCell::default(),
             dropped: (0, None),
         }
@@ -486,6 +520,17 @@ impl Table {
             parts.push(format!(
                 "{rows} with a date and nothing recorded (first on line {line}; the days a log \
                  sheet leaves blank) not read"
+            ));
+        }
+        if let (n @ 1.., line) = self.step_count_rows.get() {
+            let rows = if n == 1 {
+                "1 row".to_string()
+            } else {
+                format!("{n} rows")
+            };
+            parts.push(format!(
+                "{rows} giving only a step count (first on line {line}) not read: steps alone give \
+                 no activity minutes (an activity and its duration are read, with the steps beside them)"
             ));
         }
         for (written, col) in &self.renamed {
@@ -1674,6 +1719,41 @@ fn read_records(
              their durations instead, or leave steps to an external module \
              (plugins/example-external summarises them)"
                 .to_string()
+        } else if let Some((i, col, base, unit)) = missing.iter().find_map(|m| {
+            // A missing value column (`weight`, `kcal`) and one column not read whose header
+            // names a unit it takes (`Poids (kg)`, `Énergie (kcal)`: a spreadsheet in another
+            // language): that column is most likely it, and the hint gives the mapping to
+            // copy, not "Their name". Its unit then comes with it, so a missing `unit` is no
+            // more to add.
+            let (_, allowed, _) = spec.header_units.iter().find(|(v, _, _)| v == m)?;
+            let mut with_unit = unnamed.iter().filter_map(|&i| {
+                let (_, unit) = header_key(written.get(i)?);
+                let unit = unit.filter(|u| allowed.contains(&u.as_str()))?;
+                Some((i, unit))
+            });
+            match (with_unit.next(), with_unit.next()) {
+                (Some((i, unit)), None) => {
+                    let w = written[i].trim().trim_start_matches('\u{feff}');
+                    let base = w.rsplit_once(['(', '[']).map_or(w, |(b, _)| b).trim();
+                    Some((i, *m, base.to_string(), unit))
+                }
+                _ => None,
+            }
+        }) {
+            let unit_too = spec
+                .header_units
+                .iter()
+                .find(|(v, _, _)| *v == col)
+                .and_then(|(_, _, r)| *r)
+                .filter(|r| missing.contains(r))
+                .map(|r| format!(" (and `{r}` is then not needed: the header gives it)"))
+                .unwrap_or_default();
+            format!(
+                "`{}` (column {}) names a unit of `{col}` ({unit}) in its header; if it holds the {col}, map it in program.yaml: `input: {{ columns: {{ {}: {{ \"{base}\": {col} }} }} }}`, and the unit in its brackets is read with it{unit_too}",
+                written[i].trim().trim_start_matches('\u{feff}'),
+                i + 1,
+                spec.kind(),
+            )
         } else {
             format!(
                 "name the columns in the first row (any order), or map the file's own names to ours in program.yaml: `input: {{ columns: {{ {}: {{ \"Their name\": {} }} }} }}`",
@@ -3285,11 +3365,29 @@ fn numeric_order(
         })
         .filter(|(_, s, _)| parse_when(s, opts).is_none())
         .collect();
-    let dates: Vec<(&Row, &str, NumericParts)> = numeric
+    // A date with a four-digit year that no order reads (`31/04/2026`: 31 April is no day, and
+    // there is no month 31) is a typo that tells nothing of the order. It took part, so no
+    // order read every date, and then every numeric date of the file was unreadable: one typo
+    // cost the file. The other dates decide; it costs its own row, warned about at its cell.
+    let impossible = |p: &NumericParts| {
+        !p.4 && NumericOrder::ALL
+            .iter()
+            .all(|o| place(*p, *o, span).is_none())
+    };
+    let all_dates: Vec<(&Row, &str, NumericParts)> = numeric
         .iter()
         .filter(|(_, s, _)| !after_consent(s))
         .copied()
         .collect();
+    let dates: Vec<(&Row, &str, NumericParts)> = if all_dates.iter().all(|(_, _, p)| impossible(p))
+    {
+        all_dates
+    } else {
+        all_dates
+            .into_iter()
+            .filter(|(_, _, p)| !impossible(p))
+            .collect()
+    };
     let Some(&(first_row, first, _)) = dates.first() else {
         // Every numeric date lies after the withdrawal in each of its readings: an order that
         // reads them all lets the rows be left out as dated after it, like ISO-dated ones,
@@ -3327,7 +3425,14 @@ fn numeric_order(
     let dated = table
         .rows
         .iter()
-        .filter(|r| table.get(r, "date").is_some_and(|s| !after_consent(s)))
+        .filter(|r| {
+            table.get(r, "date").is_some_and(|s| {
+                !after_consent(s)
+                    && (parse_when(s, opts).is_some()
+                        || numeric_parts(s).is_none_or(|p| !impossible(&p))
+                        || dates.iter().any(|(_, _, q)| impossible(q)))
+            })
+        })
         .count();
     let short = dates.iter().any(|(_, _, p)| p.4);
     let within = match span {
@@ -3513,8 +3618,13 @@ fn iso_date(s: &str) -> Option<NaiveDate> {
     NaiveDate::from_ymd_opt(i32::try_from(y).ok()?, m, d)
 }
 
-/// Words of rows that sum up the others (a spreadsheet's `Average` row, a food diary's `Total`).
-pub const SUMMARY_LABELS: [&str; 14] = [
+/// Words of rows that sum up the others (a spreadsheet's `Average` row, a food diary's `Total`),
+/// also as spreadsheets in other languages label them: German, French (`Moyenne`, `Somme`),
+/// Spanish and Italian (`Promedio`, `Media`, `Suma`, `Totale`, `Somma`), Portuguese (`Média`,
+/// `Soma`), Dutch (`Gemiddelde`, `Totaal`), Polish (`Średnia`, `Suma`) and the Scandinavian
+/// languages (`Gennemsnit`, `Genomsnitt`, `Gjennomsnitt`, `Totalt`). A row labelled so
+/// where its date would be was warned about as an unreadable date every month.
+pub const SUMMARY_LABELS: [&str; 33] = [
     "total",
     "totals",
     "daily total",
@@ -3525,10 +3635,29 @@ pub const SUMMARY_LABELS: [&str; 14] = [
     "median",
     "min",
     "max",
+    "minimum",
+    "maximum",
     "summe",
     "gesamt",
     "durchschnitt",
     "mittelwert",
+    "moyenne",
+    "somme",
+    "promedio",
+    "media",
+    "mediana",
+    "suma",
+    "totale",
+    "somma",
+    "média",
+    "soma",
+    "gemiddelde",
+    "totaal",
+    "średnia",
+    "gennemsnit",
+    "genomsnitt",
+    "gjennomsnitt",
+    "totalt",
 ];
 
 /// Whether `text` is one of `labels` (lowercase), whatever its case, spacing or final colon.
@@ -3664,6 +3793,17 @@ impl Cells<'_> {
             .or_else(|| self.serial_date(s))
             .or_else(|| self.numeric_date(s))
             .or_else(|| self.unix_time(s));
+        // A numeric date of a file whose order is known that no order reads: a day the
+        // calendar lacks (`31/04/2026`), said as such rather than as a date in the wrong form.
+        let impossible = self
+            .table
+            .numeric_order
+            .zip(numeric_parts(s))
+            .filter(|(_, p)| {
+                !p.4 && NumericOrder::ALL
+                    .iter()
+                    .all(|o| place(*p, *o, self.opts.program_span).is_none())
+            });
         match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
@@ -3710,6 +3850,40 @@ impl Cells<'_> {
                 self.summary_row(s);
                 None
             }
+            None if impossible.is_some() => {
+                let (order, (a, b, y, ..)) = impossible.expect("checked");
+                let (day, month) = match order {
+                    NumericOrder::MonthFirst => (b, a),
+                    _ => (a, b),
+                };
+                let why = match NaiveDate::from_ymd_opt(y, month, 1) {
+                    Some(first) => {
+                        let days = first
+                            .checked_add_months(chrono::Months::new(1))
+                            .and_then(|next| next.pred_opt())
+                            .map_or(31, |last| last.day());
+                        format!("day {day} of month {month}, which has {days} days in {y}")
+                    }
+                    None if month == 0 || day == 0 => "a day or month 0".to_string(),
+                    None => format!("month {month}, and a year has 12"),
+                };
+                let like = self
+                    .table
+                    .numeric_example
+                    .as_ref()
+                    .map(|(w, d)| format!(" (`{w}` = {d})"))
+                    .unwrap_or_default();
+                diags.push(
+                    self.warn(col, "no such day; the row is dropped")
+                        .expected(format!(
+                            "a day of the calendar, written {} as the file's other dates{like}",
+                            order.words()
+                        ))
+                        .found(format!("`{s}`: read {}, {why}", order.words()))
+                        .hint("correct the day or the month of this date in the file (a slip of the keyboard or of a month's length), or remove the row"),
+                );
+                None
+            }
             None if is_serial(s) => {
                 let reading = |system: SerialDates| {
                     s.parse::<f64>()
@@ -3752,14 +3926,35 @@ impl Cells<'_> {
                         "write dates like `{example}` or as ISO 8601 date-times (`2026-04-01T07:30:00+02:00`), and check the day exists"
                     ),
                 };
+                // In a file whose numeric dates were read in an order (`14/04/2026`, day first),
+                // a date like the others is what the row needs, not the program's `%Y-%m-%d`: a
+                // typo (`1O/05/2026`) read "expected: a date like `2026-04-01` (format
+                // `%Y-%m-%d`)", as if the file's form were wrong.
+                let (expected, hint) = match (self.table.numeric_order, &self.table.numeric_example)
+                {
+                    (Some(order), Some((w, d))) => (
+                        format!(
+                            "a date written {} as the file's other dates (`{w}` = {d}), or an ISO 8601 date",
+                            order.words()
+                        ),
+                        format!(
+                            "correct this date in the file (digits only, {} like `{w}`), or remove the row",
+                            order.words()
+                        ),
+                    ),
+                    _ => (
+                        format!(
+                            "a date like `{example}` (format `{}`) or an ISO 8601 date-time",
+                            self.opts.date_format
+                        ),
+                        hint,
+                    ),
+                };
                 // A delimiter inside the text before the date moved it one column on.
                 let hint = self.split_text_before(col).unwrap_or(hint);
                 diags.push(
                     self.warn(col, "unreadable date; the row is dropped")
-                        .expected(format!(
-                            "a date like `{example}` (format `{}`) or an ISO 8601 date-time",
-                            self.opts.date_format
-                        ))
+                        .expected(expected)
                         .found(format!("`{s}`"))
                         .hint(hint),
                 );

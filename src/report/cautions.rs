@@ -54,7 +54,7 @@ pub fn group(min_cell: u32) -> Vec<String> {
             min_cell.saturating_sub(1),
             min_cell
         ),
-        "Weight outcomes are given under intention-to-treat (everyone who started, with the starting weight carried forward for anyone without a recent weigh-in) and for completers only; completer figures alone overstate what a program achieves.".into(),
+        "Weight outcomes are given under modified intention-to-treat (everyone who started, that is who has a baseline weight, with the starting weight carried forward for anyone without a recent weigh-in) and for completers only; completer figures alone overstate what a program achieves.".into(),
         "Individual clinical flags (very low intake, fast loss, low BMI, lab values in the diabetes range) are routed to participants' own reports and, where the program names a recipient, to a private follow-up list for the program's clinician; only the number of people with one appears here (it includes flags first seen at follow-up weigh-ins of people who stopped the program). Local rules and licensed practice come first.".into(),
     ]
 }

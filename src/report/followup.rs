@@ -105,6 +105,9 @@ pub fn reason(code: &str) -> &'static str {
         "lab_diabetes_range" => {
             "Latest glucose or HbA1c in the diabetes range (ADA Standards of Care)"
         }
+        "lab_low_glucose" => {
+            "Latest fasting glucose below 70 mg/dL (3.9 mmol/L), low blood sugar (ADA Standards of Care)"
+        }
         "medication_review" => {
             "Takes a glucose-lowering medicine while losing fast or eating little: the dose may need review"
         }

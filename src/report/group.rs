@@ -348,7 +348,10 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
     }
     let m = &g.methods;
     let methods = vec![
-        Kv::new("Who counts (intention-to-treat)", &m.itt_denominator),
+        Kv::new(
+            "Who counts (modified intention-to-treat)",
+            &m.itt_denominator,
+        ),
         Kv::new("Retention", &m.retention),
         Kv::new("Withdrawal", &m.withdrawal),
         Kv::new("Weights", &m.weights),
@@ -439,6 +442,12 @@ fn fill(
                 "Started (baseline weight recorded)".into(),
                 count(&e.started),
             ],
+            // Those outside the modified intention-to-treat figures (no baseline): a count
+            // group.json already gives, suppressed and audited as every count of the section.
+            vec![
+                "Enrolled without a baseline weight (outside the weight-change figures)".into(),
+                count(&e.not_started),
+            ],
             vec![
                 "Started and still in the program at the end of the period".into(),
                 count(&e.retained),
@@ -466,15 +475,18 @@ fn fill(
             "Median (95 % CI)".into(),
         ],
         rows: vec![
-            change_row("Intention-to-treat, baseline carried forward", &w.bocf),
             change_row(
-                "Intention-to-treat, last observation carried forward",
+                "Modified intention-to-treat, baseline carried forward",
+                &w.bocf,
+            ),
+            change_row(
+                "Modified intention-to-treat, last observation carried forward",
                 &w.locf,
             ),
             change_row("Completers only", &w.completers),
         ],
     };
-    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The intention-to-treat lines count everyone who started: someone without a weigh-in in the last 4 weeks of the period counts as unchanged (baseline carried forward: the first line, the primary and conservative figure) or at their last weigh-in (last observation carried forward). Completers only counts just those with a weigh-in in the last 4 weeks. CI: 95 % confidence interval, the range the true mean or median likely lies in.".into();
+    view.outcomes_note = "Percent change of body weight from each participant's baseline; negative values are losses. The (modified) intention-to-treat lines count everyone who started, that is everyone enrolled with a baseline weight (those without one are counted in the table above and are outside these lines): someone without a weigh-in in the last 4 weeks of the period counts as unchanged (baseline carried forward: the first line, the primary and conservative figure) or at their last weigh-in (last observation carried forward). Completers only counts just those with a weigh-in in the last 4 weeks. CI: 95 % confidence interval, the range the true mean or median likely lies in.".into();
     view.milestones = TableView {
         header: vec![
             "Loss of at least".into(),
@@ -551,7 +563,7 @@ fn fill(
             suppressed: !matches!(b.count, Shown::Value(_)),
         })
         .collect();
-    let hist_alt = "Number of participants by percent weight change from baseline (intention-to-treat, baseline carried forward).".to_string();
+    let hist_alt = "Number of participants by percent weight change from baseline (modified intention-to-treat, baseline carried forward).".to_string();
     let hist_table = TableView {
         header: vec!["Change".into(), "Participants".into()],
         rows: st
@@ -603,18 +615,9 @@ fn fill(
     // Mean trajectory by week since enrolment. A week whose mean is withheld is a gap in the
     // line and its band (NaN), so the chart never draws an interpolated value across it.
     let start = plan.program.info.start;
-    let pts: Vec<_> = st
-        .trajectory
-        .iter()
-        .map(|wp| {
-            let m = wp.mean_percent.value().copied().unwrap_or(f64::NAN);
-            let d = start + chrono::Duration::days(7 * i64::from(wp.week + 1));
-            (d, m, wp.ci.value().copied())
-        })
-        .collect();
-    if pts.iter().filter(|p| p.1.is_finite()).count() >= 2 {
+    if let Some(chart) = trajectory_chart(start, &st.trajectory) {
         let name = format!("{anchor}-trajectory");
-        let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band, over the participants whose weight trend reaches that week (n in the table, exact while everyone who started is counted and otherwise given as a range, so that weeks cannot be subtracted from one another to count the few who stopped in between): someone who stopped weighing in leaves the later weeks, so these are means of those still weighing in, not intention-to-treat, and later weeks lean towards the people who stayed. A week whose mean is not shown (too few participants, or a figure from which a small count could be worked out by subtraction) is a gap in the line. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
+        let alt = chart.alt_text.clone();
         let table = TableView {
             header: vec!["Week".into(), "n".into(), "Mean change (95 % CI)".into()],
             rows: st
@@ -629,36 +632,7 @@ fn fill(
                 })
                 .collect(),
         };
-        charts.push((
-            name.clone(),
-            Chart::Line(LineChart {
-                title: "Mean weight change by week (those still weighing in)".into(),
-                y_label: "% change".into(),
-                lines: vec![LineSeries {
-                    label: "Mean % change".into(),
-                    points: pts.iter().map(|(d, m, _)| (*d, *m)).collect(),
-                    style: LineStyle::Solid,
-                }],
-                bands: vec![BandSeries {
-                    label: "95 % CI".into(),
-                    points: pts
-                        .iter()
-                        .map(|(d, m, ci)| match ci {
-                            Some(c) if m.is_finite() => (*d, c.lo, c.hi),
-                            _ => (*d, f64::NAN, f64::NAN),
-                        })
-                        .collect(),
-                }],
-                spans: vec![],
-                hlines: vec![HLine {
-                    label: "No change".into(),
-                    y: 0.0,
-                }],
-                vlines: vec![],
-                alt_text: alt.clone(),
-                x_span: None,
-            }),
-        ));
+        charts.push((name.clone(), Chart::Line(chart)));
         view.charts.push(NamedChartView {
             name: name.clone(),
             view: ChartView {
@@ -675,6 +649,128 @@ fn fill(
                 .into(),
             table: TableView::default(),
         });
+    }
+}
+
+/// The chart of the mean weight change by week since enrolment, each week on the day it ends
+/// from the program's start; `None` when fewer than two weeks have a mean shown. A week whose
+/// mean is withheld is a gap (NaN) in the line and its band, and the axis runs over every week
+/// of the table, shown or not: it ran only to the last week with a mean, so a site whose means
+/// were hidden from week 8 on (40 people, September) got a chart of 8 Apr – 20 May in a
+/// September report, the hidden weeks cut off rather than the gap its caption names.
+fn trajectory_chart(
+    start: NaiveDate,
+    trajectory: &[crate::group::summary::WeekPoint],
+) -> Option<LineChart> {
+    let day = |week: u32| start + chrono::Duration::days(7 * i64::from(week + 1));
+    let pts: Vec<_> = trajectory
+        .iter()
+        .map(|wp| {
+            let m = wp.mean_percent.value().copied().unwrap_or(f64::NAN);
+            (day(wp.week), m, wp.ci.value().copied())
+        })
+        .collect();
+    if pts.iter().filter(|p| p.1.is_finite()).count() < 2 {
+        return None;
+    }
+    let alt = "Mean percent weight change by week since enrolment, with its 95 % confidence band, over the participants whose weight trend reaches that week (n in the table, exact while everyone who started is counted and otherwise given as a range, so that weeks cannot be subtracted from one another to count the few who stopped in between): someone who stopped weighing in leaves the later weeks, so these are means of those still weighing in, not intention-to-treat, and later weeks lean towards the people who stayed. A week whose mean is not shown (too few participants, or a figure from which a small count could be worked out by subtraction) is a gap in the line. Weeks are counted from each participant's enrolment and placed on the axis from the program's start date.".to_string();
+    let x_span = match (pts.first(), pts.last()) {
+        (Some(a), Some(b)) => Some((a.0, b.0)),
+        _ => None,
+    };
+    Some(LineChart {
+        title: "Mean weight change by week (those still weighing in)".into(),
+        y_label: "% change".into(),
+        lines: vec![LineSeries {
+            label: "Mean % change".into(),
+            points: pts.iter().map(|(d, m, _)| (*d, *m)).collect(),
+            style: LineStyle::Solid,
+        }],
+        bands: vec![BandSeries {
+            label: "95 % CI".into(),
+            points: pts
+                .iter()
+                .map(|(d, m, ci)| match ci {
+                    Some(c) if m.is_finite() => (*d, c.lo, c.hi),
+                    _ => (*d, f64::NAN, f64::NAN),
+                })
+                .collect(),
+        }],
+        spans: vec![],
+        hlines: vec![HLine {
+            label: "No change".into(),
+            y: 0.0,
+        }],
+        vlines: vec![],
+        alt_text: alt,
+        x_span,
+    })
+}
+
+#[cfg(test)]
+mod trajectory_chart_tests {
+    use crate::group::shown::{Interval, Shown};
+    use crate::group::summary::WeekPoint;
+    use crate::render::chart::{Chart, to_svg};
+    use chrono::NaiveDate;
+
+    /// A site of 40 whose weekly means are hidden from week 8 on (tryout23's own program,
+    /// September): the chart's axis ended on 20 May, the last week with a mean, and the
+    /// weeks to 30 Sep were not there at all. It now runs to the last week of the table, so
+    /// the hidden weeks are the gap the caption names.
+    #[test]
+    fn the_weekly_mean_chart_runs_over_hidden_weeks_at_its_end() {
+        let start = NaiveDate::from_ymd_opt(2026, 4, 1).unwrap();
+        let weeks: Vec<WeekPoint> = (0..26)
+            .map(|w| {
+                let shown = w < 7;
+                let m = -0.3 * f64::from(w + 1);
+                WeekPoint {
+                    week: w,
+                    n: if w < 8 {
+                        Shown::Value(40)
+                    } else {
+                        Shown::Range { lo: 11, hi: 39 }
+                    },
+                    mean_percent: if shown {
+                        Shown::Value(m)
+                    } else {
+                        Shown::Suppressed
+                    },
+                    ci: if shown {
+                        Shown::Value(Interval {
+                            lo: m - 0.3,
+                            hi: m + 0.3,
+                        })
+                    } else {
+                        Shown::Suppressed
+                    },
+                }
+            })
+            .collect();
+        let chart = super::trajectory_chart(start, &weeks).expect("7 weeks with a mean");
+        assert_eq!(
+            chart.x_span,
+            Some((
+                NaiveDate::from_ymd_opt(2026, 4, 8).unwrap(),
+                NaiveDate::from_ymd_opt(2026, 9, 30).unwrap()
+            ))
+        );
+        // The drawn axis reaches September (its ticks were 8 Apr … 20 May).
+        let svg = to_svg(&Chart::Line(chart), 700, 260);
+        assert!(svg.contains(" Sep"), "{svg}");
+        // Fewer than two weeks with a mean: no chart.
+        let one: Vec<WeekPoint> = weeks
+            .iter()
+            .cloned()
+            .map(|mut w| {
+                if w.week > 0 {
+                    w.mean_percent = Shown::Suppressed;
+                }
+                w
+            })
+            .collect();
+        assert!(super::trajectory_chart(start, &one).is_none());
     }
 }
 

@@ -147,8 +147,11 @@ pub struct Thresholds {
     pub min_intake_change_kcal: f64,
     /// Smallest walking change worth offering, min/d. Default 10 (common practice).
     pub min_walk_minutes: f64,
-    /// Most extra walking an option may ask for, min/d. Default 60 (common practice: an hour
-    /// a day is already 420 minutes a week, well past the WHO 2020 range of 150–300).
+    /// Most extra walking an option may ask for, min/d: the `energy` module's
+    /// `max_walk_minutes`, which `guidance.max_walk_minutes` sets. Default 60 (common practice:
+    /// an hour a day is already 420 minutes a week, well past the WHO 2020 range of 150–300).
+    /// A walk is within it when the minutes the model asks for are (the module's test), before
+    /// they are rounded up to the 5-minute step.
     pub max_walk_minutes: f64,
 }
 
@@ -219,7 +222,13 @@ impl Thresholds {
             target_loss_kg_per_week: e("target_loss_kg_per_week", d.target_loss_kg_per_week),
             min_intake_change_kcal: g.min_intake_change_kcal.unwrap_or(d.min_intake_change_kcal),
             min_walk_minutes: g.min_walk_minutes.unwrap_or(d.min_walk_minutes),
-            max_walk_minutes: g.max_walk_minutes.unwrap_or(d.max_walk_minutes),
+            // One cap: the `energy` module's, to which `guidance.max_walk_minutes` is passed
+            // (`modules::registry`), so its options table calls feasible exactly the walks
+            // offered here; without `energy` there are no options.
+            max_walk_minutes: e(
+                "max_walk_minutes",
+                g.max_walk_minutes.unwrap_or(d.max_walk_minutes),
+            ),
         }
     }
 
@@ -860,8 +869,8 @@ fn walk_option(
     lower: Option<f64>,
     rate: Option<f64>,
 ) -> Option<OptionView> {
-    let m = fmt::ceil_to(walk_for(kcal, f)?, MIN_STEP);
-    (m >= t.min_walk_minutes && m <= t.max_walk_minutes).then(|| OptionView {
+    let m = walk_minutes(walk_for(kcal, f)?, t)?;
+    Some(OptionView {
         text: format!(
             "Walk about {} minutes more a day at an easy pace ({}).",
             fmt::fixed(m, 0),
@@ -872,6 +881,16 @@ fn walk_option(
         intake_at_lower_bound: lower,
         rate_at_fast_bound: rate,
     })
+}
+
+/// The minutes a walk of `raw` minutes a day is offered as: rounded up to the 5-minute step,
+/// and no further than the cap; `None` below the smallest walk worth offering or beyond the
+/// cap. The cap is tested on the model's minutes, as the `energy` module's options table tests
+/// it, so that the two agree whatever cap a program sets (a cap of 62 and 61 minutes needed:
+/// "feasible" there, and offered here as 62, not refused as 65).
+fn walk_minutes(raw: f64, t: &Thresholds) -> Option<f64> {
+    let m = fmt::ceil_to(raw, MIN_STEP).min(t.max_walk_minutes);
+    (m >= t.min_walk_minutes && raw <= t.max_walk_minutes).then_some(m)
 }
 
 fn walk_for(kcal: f64, f: &Facts) -> Option<f64> {
@@ -1372,9 +1391,7 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     // the rest from walking.
     let cut_mix = fmt::floor_to((need / 2.0).min(room), KCAL_STEP);
     if cut_mix >= t.min_intake_change_kcal
-        && let Some(m) = walk_for(need - cut_mix, f).map(|m| fmt::ceil_to(m, MIN_STEP))
-        && m >= t.min_walk_minutes
-        && m <= t.max_walk_minutes
+        && let Some(m) = walk_for(need - cut_mix, f).and_then(|m| walk_minutes(m, t))
     {
         g.options.push(OptionView {
             text: format!(

@@ -1424,6 +1424,10 @@ fn weight_chart_alt(
     )
 }
 
+/// The energy section's resting energy: at one weight, the current one (the other figures cover
+/// the energy module's window).
+const RESTING_LABEL: &str = "Resting energy (estimated, at your current weight)";
+
 /// The days the energy module's window covers, in words: `last 4 weeks`, `last 30 days`, or,
 /// for someone enrolled fewer than `window_days` days before the period's end (the module's
 /// window starts at enrolment then), `11 days since you enrolled`.
@@ -1482,22 +1486,23 @@ fn energy_section(
             items.push(Kv::new(label, &text));
         }
     };
-    push(&mut items, "Resting energy (estimated)", e.rmr_kcal_per_day);
+    // Every figure beside the implied intake covers its window (`span`), and its label says
+    // so: the activity was the period's mean (a monthly report's 30 days, the whole program's
+    // 180) beside intakes of the last 28. Resting energy is a figure at one weight, the
+    // current one.
+    push(&mut items, RESTING_LABEL, e.rmr_kcal_per_day);
+    let activity_label = format!("Activity, beyond resting (average, {span})");
     if no_activity_log && e.activity_net_kcal_per_day.value.is_some() {
-        items.push(Kv::new("Activity, beyond resting", "none logged"));
+        items.push(Kv::new(&activity_label, "none logged"));
     } else {
-        push(
-            &mut items,
-            "Activity, beyond resting",
-            e.activity_net_kcal_per_day,
-        );
+        push(&mut items, &activity_label, e.activity_net_kcal_per_day);
     }
     // By energy balance exactly when there is an implied intake (the energy module's rule).
     let by_balance = e.implied_intake_kcal_per_day.value.is_some();
     let tdee_label = if by_balance {
         format!("Total energy use per day ({span}, from your weight trend)")
     } else {
-        "Total energy use per day (equation and activity, this period)".to_string()
+        format!("Total energy use per day (equation and activity, {span})")
     };
     // The rest of the total: everyday movement that is not logged activity, and digesting food
     // (resting × (activity level − 1) when the total is the equation's). Without it, "Resting
@@ -1516,7 +1521,7 @@ fn energy_section(
     };
     if let Some(rest) = everyday {
         items.push(Kv::new(
-            "Everyday movement and digestion",
+            &format!("Everyday movement and digestion ({span})"),
             &fmt::kcal_per_day(rest),
         ));
     }
@@ -1528,7 +1533,7 @@ fn energy_section(
     );
     push(
         &mut items,
-        "Intake implied by your weight trend",
+        &format!("Intake implied by your weight trend ({span})"),
         e.implied_intake_kcal_per_day,
     );
     // A difference is shown as the difference of the two figures printed above it, so the three
@@ -1545,7 +1550,7 @@ fn energy_section(
         e.logged_intake_kcal_per_day.value,
     ) {
         items.push(Kv::new(
-            "Implied intake minus logged intake",
+            &format!("Implied intake minus logged intake ({span})"),
             &fmt::kcal_change(g),
         ));
     }
@@ -1554,7 +1559,10 @@ fn energy_section(
         implied,
         e.tdee_kcal_per_day.value,
     ) {
-        items.push(Kv::new("Energy balance (implied)", &fmt::kcal_change(b)));
+        items.push(Kv::new(
+            &format!("Energy balance (implied, {span})"),
+            &fmt::kcal_change(b),
+        ));
     }
     items.push(Kv::new("Resting-energy equation", e.rmr_equation.label()));
     // No weight to estimate energy use from (no weigh-in yet): the words below spoke of "the
@@ -1571,7 +1579,9 @@ fn energy_section(
             "The total energy use above is measured over the {span} from your weight trend: the intake it implies minus the energy your weight change stored or released. The week-by-week energy use below is estimated from a published equation, your activity level and the activity you logged that week (net of what you would burn resting), so the two can differ."
         )
     } else {
-        "Energy use is estimated from a published equation, your activity level and your logged activity (net of what you would burn resting); the total above covers this period, the table below each week.".to_string()
+        format!(
+            "Energy use is estimated from a published equation, your activity level and your logged activity (net of what you would burn resting); the total above covers the {span}, the table below each week."
+        )
     };
     // "Energy balance (implied) +59 kcal/day" stood unexplained (sample program, September
     // 2026, SG-001): say what it is and which way its sign points.
@@ -1603,9 +1613,7 @@ fn energy_section(
     };
     let mut explanation = format!("{how_total}{rest}{implied_words}{balance}{ranges}");
     if let Some(left) = left_before {
-        items.retain(|k| {
-            k.label == "Resting energy (estimated)" || k.label == "Resting-energy equation"
-        });
+        items.retain(|k| k.label == RESTING_LABEL || k.label == "Resting-energy equation");
         explanation = format!(
             "You left the program on {}, before this period began, so this period's activity, energy use and intake are not shown: they would describe the days after you left. Resting energy is estimated from a published equation at your last weight; the table below shows your weeks up to the day you left.",
             fmt::date(left)
@@ -2884,7 +2892,7 @@ mod activity_unread_tests {
             assert!(
                 v.items
                     .iter()
-                    .any(|k| k.label == "Implied intake minus logged intake"),
+                    .any(|k| k.label == "Implied intake minus logged intake (last 30 days)"),
                 "{:?}",
                 v.items
             );
@@ -2901,7 +2909,10 @@ mod activity_unread_tests {
         let labels: Vec<&str> = v.items.iter().map(|k| k.label.as_str()).collect();
         assert_eq!(
             labels,
-            ["Resting energy (estimated)", "Resting-energy equation"]
+            [
+                "Resting energy (estimated, at your current weight)",
+                "Resting-energy equation"
+            ]
         );
         assert!(
             v.explanation
@@ -2909,14 +2920,46 @@ mod activity_unread_tests {
             "{}",
             v.explanation
         );
-        // Without an implied intake the total is the equation's, over the period.
+        // Without an implied intake the total is the equation's, over the same window.
         e.implied_intake_kcal_per_day.value = None;
         let (v, _) = energy_section(&e, "last 4 weeks", None, false);
         assert_eq!(
             label(&v),
-            "Total energy use per day (equation and activity, this period)"
+            "Total energy use per day (equation and activity, last 4 weeks)"
+        );
+        assert!(
+            v.explanation
+                .contains("the total above covers the last 4 weeks")
         );
         assert!(!v.explanation.contains("can differ"));
+    }
+
+    /// Every figure printed beside the implied intake covers its window and says so: the
+    /// activity line was the period's mean, unlabelled, beside intakes of the last 4 weeks.
+    /// Resting energy is at the current weight and says that instead.
+    #[test]
+    fn every_energy_figure_names_the_window_it_covers() {
+        let mut e = fixture_energy();
+        e.rmr_kcal_per_day.value = Some(1240.6);
+        e.activity_net_kcal_per_day.value = Some(48.7);
+        e.tdee_kcal_per_day.value = Some(2019.8);
+        e.logged_intake_kcal_per_day.value = Some(1500.0);
+        e.intake_gap_kcal_per_day.value = Some(200.0);
+        e.energy_balance_kcal_per_day.value = Some(-320.0);
+        for implied in [None, Some(1700.0)] {
+            e.implied_intake_kcal_per_day.value = implied;
+            let (v, _) = energy_section(&e, "last 30 days", None, false);
+            let labels: Vec<&str> = v.items.iter().map(|k| k.label.as_str()).collect();
+            assert!(labels.len() >= 6, "{labels:?}");
+            for l in &labels {
+                match *l {
+                    "Resting-energy equation" => {}
+                    "Resting energy (estimated, at your current weight)" => {}
+                    l => assert!(l.contains("last 30 days"), "{l}"),
+                }
+            }
+            assert!(labels.contains(&"Activity, beyond resting (average, last 30 days)"));
+        }
     }
 
     /// Sample program, September 2026, SG-017: "Resting energy 1,241 kcal/day" and "Activity,
@@ -2941,7 +2984,7 @@ mod activity_unread_tests {
             let (v, _) = energy_section(&e, "last 4 weeks", None, false);
             // 2,020 − 1,241 − 49 as printed (not 2,019.8 − 1,240.6 − 48.7 = 730.5 → 731).
             assert_eq!(
-                value(&v, "Everyday movement and digestion").as_deref(),
+                value(&v, "Everyday movement and digestion (last 4 weeks)").as_deref(),
                 Some("730 kcal/day")
             );
             assert!(v.explanation.contains(
@@ -2956,7 +2999,10 @@ mod activity_unread_tests {
         e.implied_intake_kcal_per_day.value = Some(1200.0);
         e.tdee_kcal_per_day.value = Some(1250.0);
         let (v, _) = energy_section(&e, "last 4 weeks", None, false);
-        assert_eq!(value(&v, "Everyday movement and digestion"), None);
+        assert_eq!(
+            value(&v, "Everyday movement and digestion (last 4 weeks)"),
+            None
+        );
         assert!(!v.explanation.contains("Everyday movement"));
     }
 

@@ -468,6 +468,9 @@ pub fn finish(
 ) -> Result<(RunSummary, Timing), RunError> {
     let mut timing = Timing::default();
     let (mut summary, all_diags, rows, inputs) = tally(discovery, records);
+    if let Some(note) = after_end_note(plan.program.info.end, records) {
+        tracing::info!("{note}");
+    }
 
     // Group step and group reports. A run of hand-picked participants (`--only`, also when
     // its shards are merged) writes none: a group report of everyone but one, set against the
@@ -839,6 +842,11 @@ fn process_participant(
         tidy: None,
         followup: None,
         consent_withdrawn: None,
+        after_end: loaded
+            .data
+            .as_ref()
+            .map(|d| rows_after(d, plan.program.info.end))
+            .unwrap_or_default(),
     };
     // Someone enrolled after the period's end was not in the program then: no report for it,
     // and not counted in its group figures (a re-issued earlier month would otherwise count
@@ -940,6 +948,72 @@ fn process_participant(
     }
     staging.write(&partial::cache_path(&rec.id), &rec.to_bytes())?;
     Ok(rec)
+}
+
+/// Rows of `data` dated after `end` (the program's end), by file name; files without any are
+/// left out.
+fn rows_after(
+    data: &cohortpress_metric_api::ParticipantData,
+    end: chrono::NaiveDate,
+) -> BTreeMap<String, usize> {
+    let counts = [
+        (
+            "weights.csv",
+            data.weights.iter().filter(|r| r.date > end).count(),
+        ),
+        (
+            "intake.csv",
+            data.intake.iter().filter(|r| r.date > end).count(),
+        ),
+        (
+            "activity.csv",
+            data.activity.iter().filter(|r| r.date > end).count(),
+        ),
+        (
+            "sessions.csv",
+            data.sessions.iter().filter(|r| r.date > end).count(),
+        ),
+        (
+            "labs.csv",
+            data.labs.iter().filter(|r| r.date > end).count(),
+        ),
+    ];
+    counts
+        .into_iter()
+        .filter(|(_, n)| *n > 0)
+        .map(|(f, n)| (f.to_string(), n))
+        .collect()
+}
+
+/// The log's one line about rows dated after the program's end (`None` when there are none):
+/// they are read (they count as rows read in `metrics/participants.csv`) but enter no figure,
+/// since every period ends by the program's end. A sync that went on after the end, or a
+/// participant's file merged from a later export, left them unmentioned in the log: the
+/// administrator could not tell whether the last report counted them.
+pub fn after_end_note(end: chrono::NaiveDate, records: &[ParticipantRecord]) -> Option<String> {
+    let mut by_file: BTreeMap<&str, usize> = BTreeMap::new();
+    let mut people = 0usize;
+    for r in records.iter().filter(|r| !r.after_end.is_empty()) {
+        people += 1;
+        for (f, n) in &r.after_end {
+            *by_file.entry(f.as_str()).or_default() += n;
+        }
+    }
+    let total: usize = by_file.values().sum();
+    (total > 0).then(|| {
+        let files = by_file
+            .iter()
+            .map(|(f, n)| format!("{f} {n}"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        format!(
+            "{total} row{} dated after the program's end ({end}) in the files of {people} \
+             participant{} ({files}): read, but not used in any report or figure, which stop at \
+             the period's end; program.yaml's `program.end` is the last day any report covers",
+            if total == 1 { "" } else { "s" },
+            if people == 1 { "" } else { "s" },
+        )
+    })
 }
 
 /// The de-identified summary row of one participant for the group step.

@@ -129,6 +129,11 @@ pub struct ParticipantRecord {
     /// recorded); not written (the tidy row in the record says it).
     #[serde(skip)]
     pub consent_withdrawn: Option<String>,
+    /// Rows dated after the program's end (up to the as-of date; later ones are dropped as
+    /// future dates), by file name: read, and in no figure, since every period ends by the
+    /// program's end. For the run's one log line about them (also after `merge`).
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub after_end: BTreeMap<String, usize>,
 }
 
 impl ParticipantRecord {

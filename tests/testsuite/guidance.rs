@@ -1051,3 +1051,84 @@ fn followup_list_never_calls_a_withdrawn_persons_flag_continuing() {
         );
     }
 }
+
+/// The walking option of the `energy` module's options table (`metrics/tables.csv`, long form:
+/// participant_id, module, table, row, column, unit, value) for `id`: (minutes a day, feasible).
+fn walking_row(tables: &std::path::Path, id: &str) -> (f64, String) {
+    let mut rows: BTreeMap<String, BTreeMap<String, String>> = BTreeMap::new();
+    for rec in csv::Reader::from_path(tables).unwrap().records() {
+        let rec = rec.unwrap();
+        if &rec[0] == id && &rec[1] == "energy" && &rec[2] == "options" {
+            rows.entry(rec[3].to_string())
+                .or_default()
+                .insert(rec[4].to_string(), rec[6].to_string());
+        }
+    }
+    let row = rows
+        .values()
+        .find(|r| r["kind"] == "walking")
+        .unwrap_or_else(|| panic!("{id}: no walking option"));
+    (
+        row["change_per_day"].parse().unwrap(),
+        row["feasible"].clone(),
+    )
+}
+
+/// One walking cap decides everywhere. The `energy` module called a walk of up to 120 minutes a
+/// day feasible while the report offered none over `guidance.max_walk_minutes` (60): SG-004,
+/// September 2026, needs about 88 minutes, `feasible: yes` in tables.csv beside a report that
+/// offers only "some of each". The program's cap now decides both, at the default and when set.
+#[test]
+fn the_tidy_options_and_the_report_call_the_same_walks_feasible() {
+    let prog = ProgramTest::sample();
+    let run = |out: &str| {
+        let o = prog.run(&["run", "{dir}", "--as-of", "2026-10-01", "--out", out]);
+        assert!(o.code == 0 || o.code == 4, "{}", o.stderr);
+        let out = prog.dir.join(out);
+        let html = std::fs::read_to_string(out.join("participants/SG-004.html")).unwrap();
+        (walking_row(&out.join("metrics/tables.csv"), "SG-004"), html)
+    };
+    let ((minutes, feasible), html) = run("out60");
+    assert!((60.0..=120.0).contains(&minutes), "{minutes}");
+    assert_eq!(
+        feasible, "no",
+        "{minutes} min/d is over the default cap of 60"
+    );
+    assert!(!html.contains("Walk about"), "walk offered beyond 60");
+    assert!(html.contains("Some of each"));
+    // The program raises the cap: the walk is feasible in both.
+    let yaml = prog.dir.join("program.yaml");
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        format!("{text}\nguidance:\n  max_walk_minutes: 120\n"),
+    )
+    .unwrap();
+    let ((minutes_120, feasible), html) = run("out120");
+    assert_eq!(minutes_120, minutes);
+    assert_eq!(feasible, "yes");
+    let offered = format!(
+        "Walk about {} minutes more a day",
+        (minutes / 5.0).ceil() * 5.0
+    );
+    assert!(html.contains(&offered), "{offered} not in the report");
+    // Set in the module too, to another value: refused at the guidance key.
+    let text = std::fs::read_to_string(&yaml).unwrap();
+    std::fs::write(
+        &yaml,
+        text.replace(
+            "  - id: energy ",
+            "  - id: energy\n    with: { max_walk_minutes: 90 }\n  #",
+        ),
+    )
+    .unwrap();
+    let o = prog.run(&["check", "{dir}", "--as-of", "2026-10-01"]);
+    assert_eq!(o.code, 3, "{}", o.stderr);
+    assert!(
+        o.stdout.contains("`guidance.max_walk_minutes` (120) differs from the `energy` module's `max_walk_minutes` (90)")
+            || o.stderr.contains("`guidance.max_walk_minutes` (120) differs from the `energy` module's `max_walk_minutes` (90)"),
+        "{}\n{}",
+        o.stdout,
+        o.stderr
+    );
+}

@@ -1609,6 +1609,73 @@ fn a_run_before_the_program_starts_offers_no_period_that_ends_before_it_begins()
     assert!(!t.dir.join("reports").exists());
 }
 
+/// Rows dated after the program's end (a sync that went on, a file merged from a later export)
+/// are read and enter no figure; the log said nothing of them. A run, and a merge of its shards,
+/// now say once how many there are and in which files, and that no figure uses them.
+#[test]
+fn rows_after_the_program_s_end_are_counted_once_in_the_log() {
+    let t = ProgramTest::fixture("report-small");
+    let append = |file: &str, rows: &str| {
+        let path = t.dir.join("participants").join(file);
+        let mut text = std::fs::read_to_string(&path).unwrap();
+        text.push_str(rows);
+        std::fs::write(&path, text).unwrap();
+    };
+    append(
+        "SG-003/weights.csv",
+        "2026-10-05,210.2,lb,home-scale\n2026-10-12,209.9,lb,home-scale\n",
+    );
+    append(
+        "SG-007/weights.csv",
+        "2026-10-03,07:05,66.4,kg,home-scale\n2026-10-10,07:02,66.1,kg,home-scale\n2026-10-17,07:04,66.0,kg,home-scale\n",
+    );
+    append("SG-007/intake.csv", "2026-10-01,1400\n2026-10-02,1390\n");
+    let line = "7 rows dated after the program's end (2026-09-30) in the files of 2 participants \
+                (intake.csv 2, weights.csv 5): read, but not used in any report or figure, \
+                which stop at the period's end; program.yaml's `program.end` is the last day \
+                any report covers";
+    let once = |stderr: &str| {
+        assert_eq!(stderr.matches(line).count(), 1, "{stderr}");
+        assert_eq!(stderr.matches("dated after the program's end").count(), 1);
+    };
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-11-02", "--out", "whole"]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    once(&r.stderr);
+    // Not one figure moved: the reports are those of the files without the later rows.
+    let html = std::fs::read_to_string(t.dir.join("whole/participants/SG-007.html")).unwrap();
+    assert!(!html.contains("Oct 2026"), "an October row in the report");
+    // Shards, then their merge: the merge says it once (each shard holds its own part).
+    let mut shards = Vec::new();
+    for k in 1..=2 {
+        let out = format!("shard{k}");
+        let r = t.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            "2026-11-02",
+            "--shard",
+            &format!("{k}/2"),
+            "--out",
+            &out,
+        ]);
+        assert!(r.code <= 1, "{}", r.stderr);
+        shards.push(out);
+    }
+    let mut args = vec!["merge", "{dir}", "--out", "merged"];
+    args.extend(shards.iter().map(String::as_str));
+    let m = t.run(&args);
+    assert!(m.code <= 1, "{}", m.stderr);
+    once(&m.stderr);
+    // Before the end there are none to speak of.
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-09-30", "--out", "sept"]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    assert!(
+        !r.stderr.contains("after the program's end"),
+        "{}",
+        r.stderr
+    );
+}
+
 /// A monthly cron line left in place after the program's end: the run without `--period`
 /// reported September again each month, and no line of its log said that the program was
 /// over; the line with `--period` of a month after the end said only that the period "lies

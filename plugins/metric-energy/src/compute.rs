@@ -55,8 +55,11 @@ const Z_95: f64 = 1.959_963_984_540_054;
 const MIN_LOGGED_DAYS: usize = 4;
 /// Gap beyond which (whole 95 % interval) logs are called inconsistent with the trend, kcal/d.
 const GAP_FLAG_KCAL: f64 = 300.0;
-/// Walking cap of the options table, min/d (common practice).
-const MAX_WALK_MIN: f64 = 120.0;
+/// Default walking cap of the options table, min/d (setting `max_walk_minutes`; common
+/// practice: an hour a day is already 420 minutes a week, well past the WHO 2020 range of
+/// 150–300). The program passes its `guidance.max_walk_minutes` here, so the tidy options and
+/// the report's guidance call the same walks feasible.
+pub(crate) const MAX_WALK_MIN: f64 = 60.0;
 /// Half-width of the plateau band as a fraction of body weight per week (program
 /// configuration rather than a literature constant: no published plateau definition exists).
 const PLATEAU_BAND_FRACTION_PER_WEEK: f64 = 0.0025;
@@ -121,10 +124,15 @@ pub(crate) const VERY_LOW_IMPLIED_INTAKE: f64 = 800.0;
 /// thinness).
 const MIN_STEADY_STATE_BMI: f64 = 16.0;
 /// Fall of the forecast's central path, kg, below the current weight of someone already
-/// underweight that raises `forecast_underweight`: a fall beyond a kilogram is more than a
-/// forecast's day-to-day wobble (program choice). Without it, a program that set the outcomes
-/// module's `underweight_bmi_below` lower (17, say) had no flag at all for a person at BMI 18
-/// whose forecast went on down to 16.
+/// underweight that raises `forecast_underweight` even when the trend cannot yet tell it from
+/// none: a kilogram is more than the weigh-ins' scatter (program choice). Without it, a program
+/// that set the outcomes module's `underweight_bmi_below` lower (17, say) had no flag at all for
+/// a person at BMI 18 whose forecast went on down to 16. A smaller fall raises it too when the
+/// trend is still falling (its slope's whole 95 % interval below zero): at BMI 17.6 and 0.2 kg a
+/// week, a forecast of 28 days (`forecast_min_days: 28` in the program's last month) fell 0.8 kg
+/// and nothing was flagged. Any further loss below BMI 18.5 (WHO 2000, Technical Report Series
+/// 894: underweight) is a clinician's matter once it is a loss at all; a path a little lower on
+/// a weight the trend cannot tell from steady is not one.
 const FALLS_FURTHER_KG: f64 = 1.0;
 
 /// BMI from which WHO calls a weight overweight (pre-obese), below it normal (18.5–24.9; WHO
@@ -152,6 +160,7 @@ struct Settings {
     floor_male: f64,
     drift_threshold: f64,
     walking_met: f64,
+    max_walk_minutes: f64,
     forecast_min_days: i64,
 }
 
@@ -184,6 +193,7 @@ impl Settings {
             floor_male: ctx.setting_f64("intake_floor_male", 1500.0),
             drift_threshold: ctx.setting_f64("drift_threshold_kcal_per_day", 150.0),
             walking_met: ctx.setting_f64("walking_met", 3.5),
+            max_walk_minutes: ctx.setting_f64("max_walk_minutes", MAX_WALK_MIN),
             forecast_min_days: ctx.setting_f64("forecast_min_days", 84.0).round().max(0.0) as i64,
         })
     }
@@ -840,7 +850,7 @@ struct Current {
     /// Net logged activity over the window, kcal/kg/d.
     met_h_window: f64,
     rmr: f64,
-    /// Net logged activity over the period, kcal/d.
+    /// Net logged activity over the window, kcal/d.
     activity: f64,
     logged: Option<f64>,
     logged_days: usize,
@@ -893,7 +903,6 @@ fn current_state(
 ) -> Current {
     let to = ctx.period.to;
     let enrolled = p.data.profile.enrolled;
-    let period_from = ctx.period.from.max(enrolled);
     let window_from = day_before(to, s.window_days - 1).max(enrolled);
     let fallback = if no_trend {
         ols_fallback(p.data, window_from, to)
@@ -921,7 +930,11 @@ fn current_state(
             }),
     };
     let rmr = p.rmr_at(bw, to);
-    let activity = p.activity_kcal(period_from, to, bw);
+    // Over the implied intake's window, as the logged intake below: it is printed beside it,
+    // and without an implied intake it makes up the total (a monthly report's activity was the
+    // period's mean beside intakes of its last 28 days; over the whole program, 180 days'
+    // beside 28).
+    let activity = p.activity_kcal(window_from, to, bw);
     // The logged intake over the window of the implied intake, so that their difference (the
     // intake gap, the logs-versus-trend flag) compares like with like: over a period of the
     // whole program the logs' mean of 180 days stood beside an implied intake of the last 28
@@ -1029,7 +1042,8 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current, left_befo
         names::ACTIVITY_NET_KCAL_PER_DAY,
         in_program(cur.activity),
         "kcal/d",
-        "Logged activity, net of resting ((MET − 1) × kg × h), added to the resting-based total",
+        "Logged activity, net of resting ((MET − 1) × kg × h), mean over the implied intake's \
+         window, added to the resting-based total",
     );
     // The 95 % interval, kept at or above resting energy: the total includes it.
     let h = Z_95 * cur.tdee_sd;
@@ -1132,9 +1146,11 @@ struct Forecast {
     /// path or steady state below BMI 16 is withheld, so that the person heading there is named.
     underweight: Option<(Option<NaiveDate>, Option<f64>)>,
     /// For someone underweight now: the day the central path is lowest and its weight, when it
-    /// lies at least [`FALLS_FURTHER_KG`] below the current weight (also computed before a path
-    /// below BMI 16 is withheld).
+    /// lies at least [`FALLS_FURTHER_KG`] below the current weight, or lies below it at all
+    /// while the trend is still falling (also computed before a path below BMI 16 is withheld).
     falls_further: Option<(NaiveDate, f64)>,
+    /// The current weight, kg.
+    now_kg: f64,
     /// The weight at BMI 16 ([`MIN_STEADY_STATE_BMI`]), kg: a flag names no weight below it.
     severe_kg: f64,
     /// The current weight is below BMI 25 ([`OVERWEIGHT_BMI`]): loss is no goal now.
@@ -1239,11 +1255,18 @@ fn forecast(
             .filter(|w| *w < under_kg);
         (crosses.is_some() || rest.is_some()).then_some((crosses, rest))
     });
+    // Still falling: the window's slope, its whole 95 % interval below zero (as the outcomes
+    // module's low-BMI test reads the trend).
+    let still_falling = cur
+        .slope
+        .is_some_and(|sl| sl.value < 0.0 && sl.upper.is_some_and(|u| u < 0.0));
     let falls_further = cur
         .implied
         .filter(|_| cur.bw < under_kg)
         .and_then(|_| points.iter().min_by(|a, b| a.value.total_cmp(&b.value)))
-        .filter(|low| low.value <= cur.bw - FALLS_FURTHER_KG)
+        .filter(|low| {
+            low.value <= cur.bw - FALLS_FURTHER_KG || (still_falling && low.value < cur.bw)
+        })
         .map(|low| (low.date, low.value));
     // Like the steady state, a forecast that reaches a BMI below 16 (its path or the lower
     // edge of its band) is not shown: the model is not one of starvation, and a line drawn
@@ -1282,6 +1305,7 @@ fn forecast(
         steady,
         underweight,
         falls_further,
+        now_kg: cur.bw,
         severe_kg: min_kg,
         healthy_now: cur.bw < OVERWEIGHT_BMI * h_m * h_m,
     }
@@ -1297,6 +1321,9 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
     if let Some((date, low)) = fc.falls_further {
         let to = if low < fc.severe_kg {
             "into severe thinness (a BMI below 16), where this model no longer applies,".into()
+        } else if fc.now_kg - low < FALLS_FURTHER_KG {
+            // Less than a kilogram: "to about 48 kg" from 48.3 read as no fall at all.
+            format!("to about {low:.1} kg")
         } else {
             format!("to about {low:.0} kg")
         };
@@ -1690,12 +1717,13 @@ fn options_table(
     };
     let (feasible, reason) = if too_fast {
         (false, fast_reason)
-    } else if minutes > MAX_WALK_MIN {
+    } else if minutes > s.max_walk_minutes {
         (
             false,
             format!(
-                "It would take about {minutes:.0} minutes of walking a day, more than \
-                 {MAX_WALK_MIN:.0}; combine a shorter walk with a smaller change in intake."
+                "It would take about {minutes:.0} minutes of walking a day, more than {:.0}; \
+                 combine a shorter walk with a smaller change in intake.",
+                s.max_walk_minutes
             ),
         )
     } else if already {
@@ -1743,7 +1771,7 @@ fn options_table(
                  {floor:.0}"
             )
         };
-        let (feasible, reason) = if rest_minutes > MAX_WALK_MIN {
+        let (feasible, reason) = if rest_minutes > s.max_walk_minutes {
             (
                 false,
                 format!(

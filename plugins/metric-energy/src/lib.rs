@@ -176,6 +176,14 @@ impl MetricModule for EnergyModule {
                 "MET of the walking option (3.5 = 2.8–3.2 mph, Compendium 2011 code 17190)",
             ),
             SettingSpec::number(
+                "max_walk_minutes",
+                compute::MAX_WALK_MIN,
+                "min/d",
+                10.0,
+                240.0,
+                "Most extra walking an option may ask for (common practice: an hour a day is 420 minutes a week, past the WHO 2020 range of 150–300); a program's guidance.max_walk_minutes is passed here, so the tidy options and the report agree",
+            ),
+            SettingSpec::number(
                 "forecast_min_days",
                 84.0,
                 "d",
@@ -195,14 +203,15 @@ impl MetricModule for EnergyModule {
                 "activity_net_kcal_per_day",
                 "scalar",
                 "kcal/d",
-                "Logged activity net of resting, mean over the period's days",
+                "Logged activity net of resting, mean over the days of the implied intake's window (the last window_days of the period)",
             ),
             OutputSpec::new(
                 "tdee_kcal_per_day",
                 "scalar",
                 "kcal/d",
                 "Implied intake minus the energy stored by the weight change; without an implied \
-                 intake, RMR × the estimated activity level + net activity",
+                 intake, RMR × the estimated activity level + net activity; over the implied \
+                 intake's window (the last window_days of the period)",
             ),
             OutputSpec::new(
                 "logged_intake_kcal_per_day",
@@ -409,6 +418,7 @@ mod tests {
         assert_eq!(s["intake_floor_male"], 1500.0);
         assert_eq!(s["drift_threshold_kcal_per_day"], 150.0);
         assert_eq!(s["walking_met"], 3.5);
+        assert_eq!(s["max_walk_minutes"], 60.0);
         // The under-reporting share is the whole record's estimate, not this period's gap: a
         // researcher read "Share of the implied intake missing from the food log" beside 12.3 %
         // where this period's logs were 82 % above the implied intake (a fast loser logging

@@ -73,6 +73,8 @@
 //!   "> 70", leaving 70 itself open; the cut-off applies from 70, the cautious reading).
 //! * `lab_diabetes_range` (clinical) / `lab_prediabetes_range` (notice): judged on the latest
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
+//! * `lab_low_glucose` (clinical): the latest fasting glucose is below 70 mg/dL (3.9 mmol/L),
+//!   ADA's level 1 hypoglycaemia (also a censored `< 3.0 mmol/L`).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
 //!   `fast_loss`, `low_intake`, `very_low_intake` or `below_resting_intake` was raised, or the `energy` module (when it
 //!   runs before this one, as in the usual order) raised `very_low_implied_intake`: the weight
@@ -341,14 +343,15 @@ fn hba1c_class(percent: f64) -> LabCategory {
     }
 }
 
-/// Glycaemia category of a fasting plasma glucose in mmol/L: `normal`, `prediabetes_range` or
-/// `diabetes_range`.
+/// Glycaemia category of a fasting plasma glucose in mmol/L: `below_normal_range`, `normal`,
+/// `prediabetes_range` or `diabetes_range`.
 ///
 /// # Formula
 ///
 /// The value is converted to mg/dL (× 18.016) and compared with ADA's mg/dL cut points:
-/// < 100 normal; 100–125 prediabetes range (impaired fasting glucose); ≥ 126 diabetes range
-/// (ADA Standards of Care in Diabetes 2025, §2).
+/// < 70 below the normal range (level 1 hypoglycaemia, [`LOW_GLUCOSE_MG_DL`]); 70–99 normal;
+/// 100–125 prediabetes range (impaired fasting glucose); ≥ 126 diabetes range (ADA Standards of
+/// Care in Diabetes 2025, §2).
 ///
 /// # Remarks
 ///
@@ -365,6 +368,8 @@ fn hba1c_class(percent: f64) -> LabCategory {
 /// use cohortpress_metric_outcomes::fasting_glucose_category;
 /// assert_eq!(fasting_glucose_category(6.9), "prediabetes_range");
 /// assert_eq!(fasting_glucose_category(7.0), "diabetes_range");
+/// assert_eq!(fasting_glucose_category(3.9), "normal"); // 70.3 mg/dL
+/// assert_eq!(fasting_glucose_category(3.8), "below_normal_range");
 /// ```
 pub fn fasting_glucose_category(mmol_l: f64) -> &'static str {
     fasting_glucose_class(mmol_l).as_str()
@@ -376,10 +381,18 @@ fn fasting_glucose_class(mmol_l: f64) -> LabCategory {
         LabCategory::DiabetesRange
     } else if at_least(mg_dl, 100.0) {
         LabCategory::PrediabetesRange
-    } else {
+    } else if at_least(mg_dl, LOW_GLUCOSE_MG_DL) {
         LabCategory::Normal
+    } else {
+        LabCategory::BelowNormalRange
     }
 }
+
+/// Fasting plasma glucose below which a result is low blood sugar: 70 mg/dL (3.9 mmol/L), ADA's
+/// level 1 hypoglycaemia (ADA Standards of Care in Diabetes 2025, §6, "Hypoglycemia"; from
+/// memory). A fasting value this low in someone losing weight on a reduced intake (or taking a
+/// glucose-lowering drug) is for a licensed clinician, not "normal".
+const LOW_GLUCOSE_MG_DL: f64 = 70.0;
 
 /// Waist-circumference risk category (Europid cut points): `not_increased_risk`,
 /// `increased_risk` or `substantially_increased_risk`.
@@ -842,6 +855,12 @@ impl MetricModule for OutcomesModule {
                     "flag",
                     "",
                     "latest lab value in the prediabetes range",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::LabLowGlucose.as_str(),
+                    "flag",
+                    "",
+                    "latest fasting glucose below 70 mg/dL (3.9 mmol/L), low blood sugar",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::FastGain.as_str(),
@@ -1744,6 +1763,7 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Se
             LabCategory::PrediabetesRange => {
                 (OutcomesFlag::LabPrediabetesRange, FlagSeverity::Notice)
             }
+            LabCategory::BelowNormalRange => (OutcomesFlag::LabLowGlucose, FlagSeverity::Clinical),
             _ => continue,
         };
         // A censored value is printed as the bound it is (`> 14.0 %`), never as the number.
@@ -1910,6 +1930,48 @@ mod tests {
     /// `>14.0 %` is in the diabetes range (ADA Standards of Care 2025 §2: from 6.5 %), `<5.0 %`
     /// and `<5.7 %` normal, `>=6.5 %` diabetes, `>6.0 %` open (5.7–6.5 or above); waist `>102`
     /// cm for a man is above the 102 cm cut (WHO 2011, from memory), `>=102` is not certainly.
+    /// A fasting glucose below 70 mg/dL (3.9 mmol/L) was classed "normal" and raised nothing (any
+    /// value under 100 mg/dL was normal): 3.0 mmol/L, or a censored `< 2.5 mmol/L`, read as a
+    /// normal result. It is low blood sugar (ADA 2025 §6, level 1 hypoglycaemia: < 70 mg/dL),
+    /// for a licensed clinician.
+    #[test]
+    fn a_fasting_glucose_below_70_mg_dl_is_low_and_flagged_for_a_clinician() {
+        let glucose = |value: f64, censored: Option<Censor>| LabResult {
+            date: d("2027-03-01"),
+            test: LabTest::FastingGlucose,
+            value,
+            unit_as_written: "mmol/L".into(),
+            value_as_written: value,
+            censored,
+        };
+        for (v, c, want) in [
+            (3.0, None, LabCategory::BelowNormalRange),
+            (3.85, None, LabCategory::BelowNormalRange), // 69.4 mg/dL
+            (3.9, None, LabCategory::Normal),            // 70.3 mg/dL
+            (5.0, None, LabCategory::Normal),
+            (2.5, Some(Censor::Below), LabCategory::BelowNormalRange),
+            (4.5, Some(Censor::Below), LabCategory::Recorded),
+        ] {
+            assert_eq!(lab_category(&glucose(v, c), None), want, "{v} {c:?}");
+        }
+        let low = glucose(3.0, None);
+        let mut out = ModuleOutput::default();
+        push_lab_flags(&mut out, &[&low], None);
+        assert_eq!(out.flags.len(), 1);
+        assert_eq!(out.flags[0].code, "lab_low_glucose");
+        assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+        let m = &out.flags[0].message;
+        assert!(m.contains("(3.0 mmol/L (54 mg/dL), 2027-03-01)"), "{m}");
+        assert!(
+            m.contains("hypoglycaemia") && m.contains("licensed clinician"),
+            "{m}"
+        );
+        // A normal fasting glucose raises nothing.
+        let mut out = ModuleOutput::default();
+        push_lab_flags(&mut out, &[&glucose(4.8, None)], None);
+        assert!(out.flags.is_empty());
+    }
+
     #[test]
     fn a_censored_lab_value_is_classed_only_when_its_bound_decides() {
         let lab = |test: LabTest, value: f64, c: Censor| LabResult {

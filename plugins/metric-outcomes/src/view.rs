@@ -96,6 +96,8 @@ code_enum! {
     pub enum LabCategory {
         /// Glycaemia in the normal range.
         Normal = "normal" => "normal range",
+        /// Fasting glucose below 70 mg/dL (3.9 mmol/L), the level of hypoglycaemia.
+        BelowNormalRange = "below_normal_range" => "below 70 mg/dL (3.9 mmol/L), the level counted as low blood sugar (hypoglycaemia)",
         /// Glycaemia in the prediabetes range.
         PrediabetesRange = "prediabetes_range" => "in the prediabetes range",
         /// Glycaemia in the diabetes range.
@@ -128,6 +130,8 @@ code_enum! {
         LabDiabetesRange = "lab_diabetes_range" => "Lab result in the diabetes range",
         /// Latest glycaemia result in the prediabetes range.
         LabPrediabetesRange = "lab_prediabetes_range" => "Lab result in the prediabetes range",
+        /// Latest fasting glucose below 70 mg/dL (3.9 mmol/L).
+        LabLowGlucose = "lab_low_glucose" => "Fasting glucose below the normal range",
         /// Glucose-lowering medication with fast loss or low intake.
         MedicationReview = "medication_review" => "Medication review",
         /// Gain faster than the fast-loss limit over the same span.

@@ -1154,11 +1154,21 @@ fn compute_trend(
         "",
         "Probability that the trend has risen by more than 1 % of baseline weight from its lowest point",
     );
+    // A slow, steady rise: the last window's mean slope is confirmed above zero (its whole 95 %
+    // interval), though inside the plateau band, and the trend already stands more than 1 % of
+    // baseline above its lowest point. +0.2 %/week for 8 weeks after a loss (a rise of 1.4 %)
+    // was a `plateau` with `not_regaining`: the level test alone, P(rise > 1 %) ≥ 0.9, seldom
+    // fires on such a rise (the smoother rounds the turn, so its lowest point sits about
+    // 0.1 kg above the true one, and the end level's SD is about 0.25 kg at 0.5 kg of scatter).
+    let slow_regain = regain.rise > regain.threshold
+        && window
+            .as_ref()
+            .is_some_and(|w| w.kind != WindowKind::InsufficientData && w.lower > 0.0);
     let verdict = if !reaches_period_end {
         RegainVerdict::InsufficientData
     } else if !regain.prior_loss_ok {
         RegainVerdict::NoPriorLoss
-    } else if slope_regain || regain.confidence >= REGAIN_CONFIDENCE {
+    } else if slope_regain || regain.confidence >= REGAIN_CONFIDENCE || slow_regain {
         RegainVerdict::Regaining
     } else if status == Status::Plateau
         || window
@@ -1186,6 +1196,8 @@ const REGAIN_CONFIDENCE: f64 = 0.9;
 /// Regain measured by level.
 struct RegainLevel {
     rise: f64,
+    /// 1 % of baseline weight, kg.
+    threshold: f64,
     sd: f64,
     confidence: f64,
     prior_loss_ok: bool,
@@ -1224,6 +1236,7 @@ fn regain_by_level(
     };
     RegainLevel {
         rise,
+        threshold,
         sd,
         confidence,
         // Half the plateau's prior-loss setting: the smoothed level on the first day is itself

@@ -783,3 +783,43 @@ fn a_step_that_may_be_real_fluid_is_for_a_clinician_in_the_period_it_is_first_fo
         None
     );
 }
+
+/// A slow, steady regain after a loss: 0.8 kg a week off 100 kg for 12 weeks, then +0.2 % a
+/// week for 8 weeks (1.4 kg, inside the plateau band of 0.25 % a week), weighed daily with a
+/// scatter of 0.5 kg. It was a `plateau` with `not_regaining`: the level test (P(rise > 1 % of
+/// baseline) ≥ 0.9) saw rises of 1.2–1.3 kg ± 0.25 (the smoother rounds the turn) and did not
+/// fire. A rise above 1 % with the last window's slope confirmed above zero is a regain; the same
+/// loss followed by 8 flat weeks is not.
+#[test]
+fn a_slow_steady_regain_after_a_loss_is_regaining() {
+    let series = |seed: u64, per_week: f64| -> Vec<(i64, f64)> {
+        let mut rng = Rng(seed);
+        (0..140)
+            .map(|d| {
+                let x = d as f64;
+                let truth = if d < 84 {
+                    100.0 - 0.8 / 7.0 * x
+                } else {
+                    90.4 * (1.0 + per_week / 7.0 * (x - 84.0))
+                };
+                (d, truth + 0.5 * rng.normal())
+            })
+            .collect()
+    };
+    let mut level_alone = 0;
+    for seed in 1..=8 {
+        let out = run(&series(seed, 0.002), 139);
+        assert_eq!(out.text("regain_verdict"), Some("regaining"), "seed {seed}");
+        if out.scalar("regain_confidence").unwrap() >= 0.9 {
+            level_alone += 1;
+        }
+        let flat = run(&series(seed, 0.0), 139);
+        assert_eq!(
+            flat.text("regain_verdict"),
+            Some("not_regaining"),
+            "seed {seed}"
+        );
+    }
+    // The level test alone said so for 2 of the 8.
+    assert_eq!(level_alone, 2);
+}

@@ -1,5 +1,7 @@
 use super::*;
 use crate::diag::Severity;
+use crate::participant::table::ColumnMap;
+use std::sync::Arc;
 
 fn d(y: i32, m: u32, day: u32) -> NaiveDate {
     NaiveDate::from_ymd_opt(y, m, day).unwrap()
@@ -1701,6 +1703,50 @@ fn censored_lab_values_are_read_as_bounds() {
     );
 }
 
+/// A `<` bound below the plausible range (an assay's lower limit: `<2.5 %`, `<0.5 mmol/L`) is
+/// a true statement about the value, as a `<` bound within the range is: it was dropped as an
+/// implausible value. It is kept as the bound, with a warning that says so; a plain value
+/// below the range, or a `>` bound there, is still dropped.
+#[test]
+fn a_lab_bound_below_the_plausible_range_is_kept_as_a_bound() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,hba1c,<2.5,%\n2026-04-02,fasting_glucose,<= 9 mg/dL,\n2026-04-03,hba1c,2.5,%\n2026-04-04,hba1c,>2.5,%\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let got: Vec<(LabTest, f64, Option<Censor>)> =
+        v.iter().map(|l| (l.test, l.value, l.censored)).collect();
+    assert_eq!(got.len(), 2, "{got:?} {diags:#?}");
+    assert_eq!(got[0], (LabTest::Hba1c, 2.5, Some(Censor::Below)));
+    // 9 mg/dL ÷ 18.016 = 0.50 mmol/L (ADA Standards of Care, Section 2: 126 mg/dL = 7.0).
+    assert_eq!(got[1].0, LabTest::FastingGlucose);
+    assert!((got[1].1 - 9.0 / 18.016).abs() < 1e-9, "{got:?}");
+    assert_eq!(got[1].2, Some(Censor::AtMost));
+    assert_eq!(v[1].value_as_written, 9.0);
+    assert_eq!(diags.len(), 4, "{diags:#?}");
+    assert_eq!(
+        diags[0].message,
+        "`hba1c` bound below the plausible range; kept as the bound it is (< 2.5 %), with no flag"
+    );
+    assert_eq!(diags[0].line, Some(2));
+    assert_eq!(diags[0].found.as_deref(), Some("`<2.5`"));
+    assert_eq!(
+        diags[1].message,
+        "`fasting_glucose` bound below the plausible range; kept as the bound it is (<= 9 mg/dL), with no flag"
+    );
+    for d in &diags[2..] {
+        assert!(
+            d.message
+                .contains("implausible `hba1c` value; the row is dropped"),
+            "{d:#?}"
+        );
+    }
+}
+
 #[test]
 fn labs_are_converted_to_canonical_units() {
     let mut diags = Vec::new();
@@ -1972,6 +2018,50 @@ fn activity_or_error(text: &str) -> (Option<Vec<ActivityEntry>>, Vec<Diagnostic>
         &mut diags,
     );
     (a, diags)
+}
+
+/// A phone's activity export lists each day's step count as a row of its own beside the day's
+/// workouts (`2026-04-02,,,,8412,` under `Date,Activity Type,Duration,Distance (km),Steps,…`).
+/// Every such row was warned about as "`activity` is empty; the row is dropped": 160 warnings
+/// in a six-month export, and every run ended with warnings. Such a row is a step count, no
+/// activity (steps alone give no minutes: GUIDE, "Activities"): not read, with one note. A
+/// row with steps and a duration but no activity keeps its warning (a workout whose label is
+/// missing), and so does a file whose every row gives steps only (nothing in it is read).
+#[test]
+fn step_count_rows_beside_workouts_are_noted_not_warned_about() {
+    let text = "Date,Activity Type,Duration,Distance (km),Steps,Calories Burned\n\
+                2026-04-01,Walking,00:32:00,2.88,3520,128\n2026-04-01,,,,8412,\n\
+                2026-04-02,,,,5120,\n2026-04-03,,-,,11032,\n2026-04-04,Walking,00:41:00,3.69,4510,164\n\
+                2026-04-04,,,,9870,\n";
+    let c = ctx("activity.csv");
+    let mut diags = Vec::new();
+    let a = parse_activity(text, &CsvOptions::default(), &c, &window(), &mut diags);
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = a.unwrap().iter().map(|x| x.minutes).collect();
+    assert_eq!(minutes, [32.0, 41.0]);
+    let notes: Vec<String> = c.take_notes().into_iter().map(|n| n.message).collect();
+    assert!(
+        notes.iter().any(|n| n.contains(
+            "4 rows giving only a step count (first on line 3) not read: steps alone give no activity minutes"
+        )),
+        "{notes:#?}"
+    );
+    // A duration without its activity is a workout with its label missing.
+    let (_, diags) = activity_or_error(
+        "Date,Activity,Duration,Steps\n2026-04-01,Walking,30,3500\n2026-04-02,,45,5200\n",
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(2)));
+    // Step counts only, under a workout export's header: nothing to read, as before.
+    let (a, diags) =
+        activity_or_error("Date,Activity,Duration,Steps\n2026-04-01,,,3500\n2026-04-02,,,5200\n");
+    assert!(a.is_none_or(|a| a.is_empty()));
+    assert!(
+        diags
+            .iter()
+            .any(|d| d.message.contains("`activity` is empty")),
+        "{diags:#?}"
+    );
 }
 
 /// An export that writes durations as minutes:seconds (`45:00`, `32:30`): `45:00` read as
@@ -2833,6 +2923,208 @@ fn summary_rows_at_the_foot_are_left_out_with_a_note_and_two_unit_columns_read_t
         notes.iter().any(|n| n
             == "columns `Weight (kg)` and `Weight (lb)` give `weight` in two units; `Weight (kg)` is read"),
         "{notes:#?}"
+    );
+}
+
+/// Summary rows at the foot of a spreadsheet saved in another language: a Dutch `Gemiddelde` and
+/// `Totaal verschil`, a French `Moyenne`, a Spanish `Promedio`, an Italian `Media`, a Polish
+/// `Średnia`. They were each warned about as "unreadable date … expected: a date like
+/// `2026-04-01`", with the hint to write dates so, in a file whose dates had all been read, and
+/// every monthly run ended with warnings. They are left out with the note English ones get; a
+/// food diary's day total in such a language is checked against the day's rows as `Total` is.
+#[test]
+fn summary_rows_in_other_languages_are_left_out_with_a_note() {
+    for (text, first) in [
+        (
+            "Datum;Gewicht (kg);Opmerking\n13-4-2026;99,2;\n15-4-2026;99,1;na het sporten\n;;\n\
+             Gemiddelde;99,2;\nTotaal verschil;-0,1;\n",
+            "2 rows summing up the others (`Gemiddelde` on line 5)",
+        ),
+        (
+            "Date;Poids (kg);Remarques\n01/04/2026;87,9;\n14/04/2026;87,5;\nMoyenne;87,7;\n",
+            "`Moyenne` on line 4",
+        ),
+        (
+            "Fecha;Peso (kg)\n1/4/2026;83,6\n13/4/2026;82,7\nPromedio;83,2\nSuma;166,3\n",
+            "`Promedio` on line 4",
+        ),
+        (
+            "Data;Peso (kg)\n01/04/2026;69,9\n14/04/2026;69,3\nMedia;69,6\n",
+            "`Media` on line 4",
+        ),
+        (
+            "Data;Waga (kg)\n01.04.2026;111,7\n19.04.2026;111,6\nŚrednia;111,7\n",
+            "`Średnia` on line 4",
+        ),
+    ] {
+        let ctx = ctx("weights.csv");
+        let mut diags = Vec::new();
+        // Mapped as the GUIDE says (`input.columns`), keyed as `header_key` writes them.
+        let map: ColumnMap = [
+            ("data", "date"),
+            ("fecha", "date"),
+            ("poids", "weight"),
+            ("peso", "weight"),
+            ("waga", "weight"),
+        ]
+        .map(|(theirs, ours)| (theirs.to_string(), ours.to_string()))
+        .into();
+        let opts = CsvOptions {
+            columns: Arc::new([("weights".to_string(), map)].into()),
+            ..CsvOptions::default()
+        };
+        let w = parse_weights(text, &opts, &ctx, &window(), &mut diags);
+        let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+        assert!(diags.is_empty(), "{text}: {diags:#?}");
+        assert_eq!(w.unwrap().len(), 2, "{text}");
+        assert!(
+            notes.iter().any(|n| n.contains(first)),
+            "{text}: {notes:#?}"
+        );
+    }
+    let ctx = ctx("intake.csv");
+    let mut diags = Vec::new();
+    let i = parse_intake(
+        "Datum;Maaltijd;Kalorien\n2026-05-04;Ontbijt;400\n2026-05-04;Lunch;600\n2026-05-04;Totaal;1000\n",
+        &CsvOptions::default(),
+        &ctx,
+        &window(),
+        &mut diags,
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kcal: Vec<f64> = i.unwrap().iter().map(|x| x.kcal).collect();
+    assert_eq!(kcal, [1000.0]);
+}
+
+/// One impossible date in a spreadsheet of numeric dates (`31/04/2026` typed for 30 April, or
+/// `4/31/2026` month first: no order reads it, as 31 April is no day and there is no month 31)
+/// left the file with no order that reads every date, and then every numeric date was
+/// "unreadable": the whole file was lost ("no row of the file could be read: 13 rows
+/// dropped"), for one typo. Such a date tells nothing of the order: the others decide it, and
+/// only its own row is dropped, with a warning at its cell.
+#[test]
+fn one_impossible_numeric_date_costs_its_row_not_the_file() {
+    for (text, line, days) in [
+        (
+            "Date;Gewicht (kg)\n01/04/2026;69,9\n14/04/2026;69,3\n31/04/2026;69,5\n01/05/2026;68,1\n",
+            4,
+            [(4, 1), (4, 14), (5, 1)],
+        ),
+        (
+            "Date,Weight (lb),Notes\n4/1/2026,250.9,\n4/13/2026,250.2,\n4/31/2026,249.0,typo\n5/2/2026,248.2,\n",
+            4,
+            [(4, 1), (4, 13), (5, 2)],
+        ),
+    ] {
+        let mut diags = Vec::new();
+        let w = parse_weights(
+            text,
+            &CsvOptions::default(),
+            &ctx("weights.csv"),
+            &window(),
+            &mut diags,
+        )
+        .expect("the file is read");
+        let dates: Vec<NaiveDate> = w.iter().map(|x| x.date).collect();
+        assert_eq!(dates, days.map(|(m, day)| d(2026, m, day)), "{text}");
+        assert_eq!(diags.len(), 1, "{text}: {diags:#?}");
+        assert_eq!((diags[0].line, diags[0].column), (Some(line), Some(1)));
+        assert_eq!(diags[0].severity, Severity::Warning);
+        // Said as a day the calendar lacks, in the file's own order, not as a date in the
+        // wrong form ("expected: a date like `2026-04-01` (format `%Y-%m-%d`)").
+        let said = diags[0].to_string();
+        assert!(said.contains("no such day; the row is dropped"), "{said}");
+        assert!(
+            said.contains("day 31 of month 4, which has 30 days in 2026"),
+            "{said}"
+        );
+        assert!(!said.contains("%Y-%m-%d"), "{said}");
+    }
+    // A typo that is no numeric date at all (`1O/05/2026`, a letter O) in such a file: the
+    // warning asks for a date like the file's others, not for the program's `%Y-%m-%d`.
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "Date;Gewicht (kg)\n01/04/2026;69,9\n14/04/2026;69,3\n1O/05/2026;69,5\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert_eq!(w.map(|w| w.len()), Some(2));
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    let said = diags[0].to_string();
+    assert!(
+        said.contains("expected: a date written day first as the file's other dates (`14/04/2026` = 2026-04-14)"),
+        "{said}"
+    );
+    assert!(!said.contains("%Y-%m-%d"), "{said}");
+    // Two-digit years keep their refusal: `14/05/19` is no date within a 2026 program.
+    let mut diags = Vec::new();
+    let opts = CsvOptions {
+        program_span: Some((d(2026, 4, 1), d(2026, 9, 30))),
+        ..CsvOptions::default()
+    };
+    let w = parse_weights(
+        "date,weight,unit\n01/05/26,80,kg\n14/05/19,80,kg\n",
+        &opts,
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none(), "{diags:#?}");
+}
+
+/// A spreadsheet in another language (`Date;Poids (kg);Remarques`, a food app's `Énergie
+/// (kcal)`): the file was refused for missing `weight` and `unit` with the hint to map
+/// "Their name", though one column not read names the unit the missing column takes. The hint
+/// now names that column and gives the mapping to copy, and says the unit comes with it.
+/// Two such columns (`Poids (kg)`, `Masse grasse (kg)`) leave the choice open: the plain hint.
+#[test]
+fn a_missing_value_column_whose_unit_a_column_names_gets_the_mapping_to_copy() {
+    let hint_of = |diags: &[Diagnostic]| {
+        assert_eq!(diags.len(), 1, "{diags:#?}");
+        diags[0].hint.clone().unwrap_or_default()
+    };
+    let mut diags = Vec::new();
+    let w = parse_weights(
+        "Date;Poids (kg);Remarques\n01/04/2026;87,9;\n14/04/2026;87,5;après le sport\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(w.is_none());
+    let hint = hint_of(&diags);
+    assert!(
+        hint.contains(
+            "`Poids (kg)` (column 2) names a unit of `weight` (kg) in its header; if it holds the weight, map it in program.yaml: `input: { columns: { weights: { \"Poids\": weight } } }`"
+        ),
+        "{hint}"
+    );
+    assert!(hint.contains("`unit` is then not needed"), "{hint}");
+    let mut diags = Vec::new();
+    let i = parse_intake(
+        "Date;Repas;Aliment;Énergie (kcal)\n2026-04-01;Déjeuner;Salade;420\n",
+        &CsvOptions::default(),
+        &ctx("intake.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(i.is_none());
+    let hint = hint_of(&diags);
+    assert!(hint.contains("{ intake: { \"Énergie\": kcal } }"), "{hint}");
+    assert!(!hint.contains("not needed"), "{hint}");
+    let mut diags = Vec::new();
+    parse_weights(
+        "Date;Poids (kg);Masse grasse (kg)\n01/04/2026;87,9;30,1\n",
+        &CsvOptions::default(),
+        &ctx("weights.csv"),
+        &window(),
+        &mut diags,
+    );
+    assert!(
+        hint_of(&diags).contains("\"Their name\": weight"),
+        "{diags:#?}"
     );
 }
 

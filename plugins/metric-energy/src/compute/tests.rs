@@ -1545,3 +1545,122 @@ fn a_sex_not_recorded_takes_the_mean_equation_a_wider_interval_and_the_higher_fl
         cell_text(opt, 0, "reason")
     );
 }
+
+/// Someone already underweight whose weight is still falling gets the forecast flag however
+/// short the forecast's horizon. The flag needed a forecast fall of 1 kg, a total over the
+/// horizon: in a program's last month with `forecast_min_days: 28`, a woman at BMI 17.6 losing
+/// 0.2 kg a week (the trend's whole 95 % interval below zero) is forecast about 0.8 kg lower
+/// and nothing was flagged. A fall the trend cannot tell from none (a steady weight) still
+/// raises nothing.
+#[test]
+fn an_underweight_weight_still_falling_is_flagged_whatever_the_forecast_s_length() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    // 1.65 m: BMI 18.5 is 50.4 kg.
+    let run_with = |start: f64, per_week: f64, slope_hw: f64| {
+        let weights: Vec<f64> = (0..n).map(|i| start - per_week * i as f64 / 7.0).collect();
+        let mut data = data(profile(Sex::Female, 165.0, 45.0, enrolled));
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        // The program ends with the period; the forecast runs 28 days past it.
+        let mut c = ctx(
+            enrolled,
+            period.to,
+            period,
+            serde_json::json!({ "forecast_min_days": 28 }),
+        );
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, 0.3, slope_hw, &[]),
+        );
+        let out = EnergyModule.compute(&c, &data).unwrap();
+        let end = out.scalar("forecast_weight_at_end_kg");
+        let flag = out
+            .flags
+            .iter()
+            .find(|f| f.code == "forecast_underweight")
+            .map(|f| (f.severity, f.message.clone()));
+        (weights[n - 1], end, flag)
+    };
+    // 50.5 kg at enrolment, 48.0 kg (BMI 17.6) at the period's end, 0.2 kg a week (0.029 kg a
+    // day, its interval ±0.005 kg a day).
+    let (now, end, flag) = run_with(50.5, 0.2, 0.005);
+    assert!(now < 18.5 * 1.65 * 1.65, "{now}");
+    let end = end.expect("a forecast");
+    assert!(
+        end < now && end > now - 1.0,
+        "{now} → {end}: less than 1 kg lower"
+    );
+    let (severity, message) = flag.expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(
+        message.contains("already in the underweight range"),
+        "{message}"
+    );
+    // The lowest point of the path, to a tenth of a kilogram ("to about 48 kg" from 48.0 read
+    // as no fall).
+    let to: f64 = message
+        .split("to about ")
+        .nth(1)
+        .and_then(|r| r.split(" kg around").next())
+        .and_then(|x| x.parse().ok())
+        .unwrap_or_else(|| panic!("{message}"));
+    assert!((to - end).abs() <= 0.051 && to < now, "{message}");
+    // The same weight held steady raises nothing; nor does a fall the trend cannot tell from
+    // none (0.02 kg a week, its interval ±0.035 kg a week).
+    assert_eq!(run_with(48.0, 0.0, 0.005).2, None);
+    assert_eq!(run_with(48.1, 0.02, 0.005).2, None);
+}
+
+/// The net activity is the mean over the implied intake's window, the days of the intakes it is
+/// printed beside. Over a period of the whole program (report.period: program_to_date) it was
+/// the period's mean: walking every day of the last four weeks read as half of it (56 days), and
+/// walking only in the month before the window read as half too, beside an implied and a
+/// logged intake of the last 28 days.
+#[test]
+fn the_net_activity_covers_the_implied_intake_s_window() {
+    let enrolled = d("2027-01-04");
+    // The whole program so far: 56 days; the window is its last 28, 1 to 28 February.
+    let period = Period {
+        from: enrolled,
+        to: d("2027-02-28"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let mut data = data(profile(Sex::Male, 180.0, 40.0, enrolled));
+    let weights = vec![85.0; n];
+    data.weights = daily_weigh_ins(enrolled, &weights);
+    let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::Value::Null);
+    c.earlier.insert(
+        "trend".into(),
+        trend_output(enrolled, &weights, 0.4, 0.005, &[]),
+    );
+    // One hour of walking at 3.5 MET (Compendium 2011 code 17190) a day from `from`, 28 days.
+    let walks = |from: NaiveDate| -> Vec<ActivityEntry> {
+        (0..28)
+            .map(|i| ActivityEntry {
+                date: day_after(from, i),
+                activity: "17190".into(),
+                minutes: 60.0,
+                met: 3.5,
+                met_source: "Compendium 2011 code 17190".into(),
+                steps: None,
+            })
+            .collect()
+    };
+    // (3.5 − 1) × 85 kg × 1 h = 212.5 kcal/d net on each day walked.
+    data.activity = walks(d("2027-02-01"));
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let activity = out.scalar("activity_net_kcal_per_day").unwrap();
+    assert!(
+        (activity - 212.5).abs() < 1e-9,
+        "{activity} (the period's mean: 106.25)"
+    );
+    // Walking only in January, before the window: none in it.
+    data.activity = walks(enrolled);
+    let out = EnergyModule.compute(&c, &data).unwrap();
+    let activity = out.scalar("activity_net_kcal_per_day").unwrap();
+    assert!(activity.abs() < 1e-9, "{activity}");
+}
