@@ -61,6 +61,14 @@ pub struct ReleaseRecord {
     /// Empty in older ledgers (their medians were not recorded).
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub orders: Vec<Vec<(u64, u64)>>,
+    /// The enrolled and the started people of each section a count was printed in (person
+    /// tokens), and for each count (aligned with `counts`) the indices of its section's two.
+    /// Empty in older ledgers: their counts are compared by their people only.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub scopes: Vec<Vec<u64>>,
+    /// See `scopes`.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub count_scopes: Vec<Vec<usize>>,
     /// A keyed hash of a fixed text under the key the tokens were made with (see
     /// [`key_check`]): tells a key that does not belong to the ledger. Empty in older ledgers.
     #[serde(default)]
@@ -95,6 +103,8 @@ impl ReleaseRecord {
             count_labels,
             sums,
             orders,
+            scopes,
+            count_scopes,
             key_check,
             figures,
             withdrawals: _,
@@ -107,6 +117,8 @@ impl ReleaseRecord {
             && *count_labels == other.count_labels
             && *sums == other.sums
             && *orders == other.orders
+            && *scopes == other.scopes
+            && *count_scopes == other.count_scopes
             && *key_check == other.key_check
             && *figures == other.figures
     }
@@ -654,6 +666,8 @@ impl Ledger {
                 && r.count_labels == published.count_labels
                 && r.sums == published.sums
                 && r.orders == published.orders
+                && r.scopes == published.scopes
+                && r.count_scopes == published.count_scopes
         })
     }
 
@@ -672,15 +686,29 @@ impl Ledger {
             ..Default::default()
         };
         for r in self.releases.iter().filter(|r| keep(r)) {
-            h.counts.extend(r.counts.iter().cloned());
-            if r.count_labels.len() == r.counts.len() {
-                h.count_labels.extend(r.count_labels.iter().cloned());
+            let n = r.counts.len();
+            // A release of an older ledger (no names, or no sections) adds its counts with
+            // empty names and no sections.
+            let labels = if r.count_labels.len() == n {
+                r.count_labels.clone()
             } else {
-                h.count_labels
-                    .extend(std::iter::repeat_n(String::new(), r.counts.len()));
-            }
-            h.sums.extend(r.sums.iter().cloned());
-            h.orders.extend(r.orders.iter().cloned());
+                vec![String::new(); n]
+            };
+            let (scopes, count_scopes) = if r.count_scopes.len() == n
+                && r.count_scopes.iter().flatten().all(|&i| i < r.scopes.len())
+            {
+                (r.scopes.clone(), r.count_scopes.clone())
+            } else {
+                (Vec::new(), vec![Vec::new(); n])
+            };
+            h.add(Published {
+                sums: r.sums.clone(),
+                orders: r.orders.clone(),
+                counts: r.counts.clone(),
+                count_labels: labels,
+                scopes,
+                count_scopes,
+            });
         }
         h
     }
@@ -797,6 +825,8 @@ pub fn release_record(
         count_labels: published.count_labels,
         sums: published.sums,
         orders: published.orders,
+        scopes: published.scopes,
+        count_scopes: published.count_scopes,
         key_check: String::new(),
         figures,
         withdrawals: None,

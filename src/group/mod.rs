@@ -94,6 +94,36 @@ pub struct History {
     /// `counts`; an empty name (a ledger written before names were kept) joins every family
     /// of the audit across releases.
     pub count_labels: Vec<String>,
+    /// The people of the sections earlier counts were printed in (each section's enrolled
+    /// and its started), for [`History::count_scopes`].
+    pub scopes: Vec<Vec<u64>>,
+    /// Aligned with `counts`: the enrolled and started people of the section each count was
+    /// printed in, as indices into `scopes` (empty for a count of an older ledger). A count
+    /// printed again over the same people, in a section that has since gained or lost a few
+    /// people, says that none of them is counted in it.
+    pub count_scopes: Vec<Vec<usize>>,
+}
+
+impl History {
+    /// Adds what a release published (its counts, sums, medians and their sections' people).
+    pub fn add(&mut self, published: Published) {
+        let offset = self.scopes.len();
+        self.sums.extend(published.sums);
+        self.orders.extend(published.orders);
+        // Older entries without names or sections stay aligned.
+        self.count_labels.resize(self.counts.len(), String::new());
+        self.count_scopes.resize(self.counts.len(), Vec::new());
+        self.counts.extend(published.counts);
+        self.count_labels.extend(published.count_labels);
+        self.scopes.extend(published.scopes);
+        self.count_scopes.extend(
+            published
+                .count_scopes
+                .into_iter()
+                .map(|ix| ix.into_iter().map(|i| i + offset).collect()),
+        );
+        self.count_scopes.resize(self.counts.len(), Vec::new());
+    }
 }
 
 /// What a release publishes as exact figures, in the form [`History`] keeps (for the ledger).
@@ -107,6 +137,11 @@ pub struct Published {
     pub counts: Vec<Vec<u64>>,
     /// The plain name of each of `counts` (aligned).
     pub count_labels: Vec<String>,
+    /// The enrolled and the started people of every section a count was printed in.
+    pub scopes: Vec<Vec<u64>>,
+    /// Aligned with `counts`: its section's enrolled and started people, as indices into
+    /// `scopes`.
+    pub count_scopes: Vec<Vec<usize>>,
 }
 
 /// Options of the group step (from the program's report and privacy settings).

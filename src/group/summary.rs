@@ -1144,6 +1144,14 @@ pub(super) fn build(
             .iter()
             .map(|c| c.iter().copied().collect())
             .collect();
+        // Where each earlier count was printed: the people of its section (enrolled, started).
+        let mut scopes_of_prior: HashMap<BTreeSet<u64>, Vec<&Vec<usize>>> = HashMap::new();
+        for (set, ix) in history.counts.iter().zip(&history.count_scopes) {
+            scopes_of_prior
+                .entry(set.iter().copied().collect())
+                .or_default()
+                .push(ix);
+        }
         let members_of = |raw: &Raw, k: Kind| -> BTreeSet<u64> {
             raw.members
                 .get(&k)
@@ -1207,10 +1215,43 @@ pub(super) fn build(
                         let diff = p.symmetric_difference(&set).count();
                         diff > 0 && diff < min as usize
                     };
-                    // A count over exactly a set published before repeats it: nothing new.
+                    // A count over exactly a set published before repeats it: nothing new,
+                    // unless its section has since gained or lost 1 … min − 1 people (joined,
+                    // left, moved site, started): beside the earlier count, the same number
+                    // says that none of them is counted in it, a 0 among a small group the
+                    // sponsor can name (an 80-person demo re-issued without one person printed
+                    // "did not reach 3 %" 23 and "reached 5 %" 31 again: that person had
+                    // reached 3 % but not 5 %).
+                    let scope_moved = || {
+                        let now = [
+                            members_of(raw, Kind::Enrolled),
+                            members_of(raw, Kind::Started),
+                        ];
+                        scopes_of_prior.get(&set).is_some_and(|all| {
+                            all.iter().any(|ix| {
+                                ix.iter().zip(&now).any(|(&i, now)| {
+                                    let diff = history.scopes[i]
+                                        .iter()
+                                        .filter(|p| !now.contains(p))
+                                        .count()
+                                        + now
+                                            .iter()
+                                            .filter(|p| history.scopes[i].binary_search(p).is_err())
+                                            .count();
+                                    diff > 0 && diff < min as usize
+                                })
+                            })
+                        })
+                    };
+                    let repeat = prior_counts.contains(&set);
+                    // One note for both reasons: a note of its own would say that the count is
+                    // the earlier one's, and so give its number.
                     if !set.is_empty()
-                        && !prior_counts.contains(&set)
-                        && prior_counts.iter().any(isolates)
+                        && if repeat {
+                            scope_moved()
+                        } else {
+                            prior_counts.iter().any(isolates)
+                        }
                     {
                         band_it(&mut table, c);
                         changed = true;
@@ -1529,13 +1570,23 @@ pub(super) fn build(
                 withdrawn.entry(d).or_default().insert(line);
             }
         }
+        let mut scope_at: HashMap<Vec<u64>, usize> = HashMap::new();
         for d in drafts_of() {
             let raw = d.raw.as_ref().expect("filtered");
+            let mut scope = |k: Kind| {
+                let people: Vec<u64> = members_of(raw, k).into_iter().collect();
+                *scope_at.entry(people.clone()).or_insert_with(|| {
+                    published.scopes.push(people);
+                    published.scopes.len() - 1
+                })
+            };
+            let here = vec![scope(Kind::Enrolled), scope(Kind::Started)];
             for (&k, &c) in &d.cells {
                 let set = members_of(raw, k);
                 if !table.is_suppressed(c) && !set.is_empty() {
                     published.counts.push(set.into_iter().collect());
                     published.count_labels.push(k.name());
+                    published.count_scopes.push(here.clone());
                 }
             }
         }
