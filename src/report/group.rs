@@ -347,7 +347,7 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
         notes.push("Some participant folders could not be used because of input errors and are not counted here; the program staff's data-quality list (metrics/data-quality.csv, identified: not for the sponsor) names them and the problems.".to_string());
     }
     let m = &g.methods;
-    let methods = vec![
+    let methods = [
         Kv::new(
             "Who counts (modified intention-to-treat)",
             &m.itt_denominator,
@@ -365,7 +365,13 @@ pub fn build(plan: &Scope<'_>, g: &GroupReport, left_out: usize) -> GroupReportM
         Kv::new("Proportion intervals", &m.proportion_interval),
         Kv::new("Small cells", &m.suppression),
         Kv::new("Small groups", &m.small_groups),
-    ];
+    ]
+    .into_iter()
+    .map(|kv| Kv {
+        value: without_own_label(&kv.label, &kv.value),
+        ..kv
+    })
+    .collect();
     for sv in &mut sections {
         // One sentence per rule, listing the figures it applied to.
         let mut by_rule: Vec<(&str, Vec<&str>)> = Vec::new();
@@ -705,6 +711,77 @@ fn trajectory_chart(
         alt_text: alt,
         x_span,
     })
+}
+
+/// A method's text without the label it opens with when the report's own label names it
+/// already: group.json keeps "Retention: of those who started …" (its fields have no labels),
+/// and the report printed "Retention | Retention: of those who started …" (tryout23). The
+/// text's label is dropped when its first word is a word of the report's label
+/// ("Sensitivity" in "Sensitivity (LOCF)"); one that says more ("Baseline" beside "Weights",
+/// "95 % interval for a mean") is kept.
+fn without_own_label(label: &str, text: &str) -> String {
+    let Some((own, rest)) = text.split_once(": ") else {
+        return text.to_string();
+    };
+    let words = |s: &str| -> Vec<String> {
+        s.split(|c: char| !c.is_alphanumeric())
+            .filter(|w| !w.is_empty())
+            .map(str::to_lowercase)
+            .collect()
+    };
+    let first = words(own).into_iter().next();
+    let short = own.len() <= 40 && !own.contains('.');
+    match first {
+        Some(w) if short && words(label).contains(&w) && !rest.is_empty() => {
+            // The sentence now starts here.
+            let mut chars = rest.chars();
+            chars
+                .next()
+                .map(|c| c.to_uppercase().chain(chars).collect())
+                .unwrap_or_default()
+        }
+        _ => text.to_string(),
+    }
+}
+
+#[cfg(test)]
+mod method_label_tests {
+    use super::without_own_label;
+
+    #[test]
+    fn a_method_s_text_does_not_repeat_the_label_printed_beside_it() {
+        assert_eq!(
+            without_own_label("Retention", "Retention: of those who started, the share"),
+            "Of those who started, the share"
+        );
+        assert_eq!(
+            without_own_label("Sensitivity (LOCF)", "Sensitivity: a missing weight"),
+            "A missing weight"
+        );
+        assert_eq!(
+            without_own_label(
+                "Who counts (modified intention-to-treat)",
+                "Modified intention to treat: everyone enrolled"
+            ),
+            "Everyone enrolled"
+        );
+        // A label that says more than the report's is kept.
+        assert_eq!(
+            without_own_label("Weights", "Baseline: each participant's first weigh-in"),
+            "Baseline: each participant's first weigh-in"
+        );
+        assert_eq!(
+            without_own_label("Mean intervals", "95 % interval for a mean: Student t."),
+            "95 % interval for a mean: Student t."
+        );
+        assert_eq!(
+            without_own_label(
+                "Small cells",
+                "No count from 1 to 10 is shown; 0 is shown: x"
+            ),
+            "No count from 1 to 10 is shown; 0 is shown: x"
+        );
+    }
 }
 
 #[cfg(test)]
