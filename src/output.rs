@@ -1796,26 +1796,7 @@ mod tests {
     }
 
     fn write_output(target: &OutputTarget) {
-        let staging = Staging::begin(target, Access::Owner).unwrap();
-        for i in 0..60 {
-            staging
-                .write(&format!("f{i:02}/report.html"), b"x")
-                .unwrap();
-        }
-        let outputs: Vec<_> = staging
-            .files()
-            .iter()
-            .map(|f| serde_json::json!({ "path": f.path }))
-            .collect();
-        let manifest = serde_json::json!({
-            "tool": "cohortpress test",
-            "program_id": "p",
-            "outputs": outputs,
-        });
-        staging
-            .write(MANIFEST, manifest.to_string().as_bytes())
-            .unwrap();
-        staging.commit().unwrap();
+        staged_output(target).commit().unwrap();
     }
 
     /// An interrupt after an output had been put in place said "an output not yet put in
