@@ -246,6 +246,16 @@ pub struct Table {
     pub dropped: (usize, Option<Diagnostic>),
 }
 
+/// Adds `row` to a tally of rows left out for a file's note: how many, and the first line.
+fn count_row(tally: &Cell<(usize, u64)>, row: &Row) {
+    let (n, first) = tally.get();
+    let first = if n == 0 {
+        row.line
+    } else {
+        first.min(row.line)
+    };
+    tally.set((n + 1, first));
+}
 impl Table {
     /// 1-based field number of `col` (for diagnostics), when the file has it.
     pub fn column(&self, col: &str) -> Option<u64> {
@@ -280,15 +290,7 @@ impl Table {
 
     /// Counts `row` as one with nothing recorded, for the file's note.
     pub fn unfilled_row(&self, row: &Row) {
-        let (n, first) = self.unfilled_rows.get();
-        self.unfilled_rows.set((
-            n + 1,
-            if n == 0 {
-                row.line
-            } else {
-                first.min(row.line)
-            },
-        ));
+        count_row(&self.unfilled_rows, row);
     }
 
     /// Whether `row` of an activity file gives a step count and no activity: its `steps` holds
@@ -310,15 +312,7 @@ impl Table {
 
     /// Counts `row` as one that gives only a step count, for the file's note.
     pub fn step_count_row(&self, row: &Row) {
-        let (n, first) = self.step_count_rows.get();
-        self.step_count_rows.set((
-            n + 1,
-            if n == 0 {
-                row.line
-            } else {
-                first.min(row.line)
-            },
-        ));
+        count_row(&self.step_count_rows, row);
     }
 
     /// Field `i` of `row` as written, spaces included.
