@@ -619,7 +619,7 @@ fn unlisted_files(
         if unlisted {
             count += 1;
             if found.len() < 5 {
-                found.push(format!("`{}`", crate::diag::printable(&rel)));
+                found.push(format!("`{}`", crate::diag::printable_clipped(&rel, 60)));
             }
         }
     }
@@ -2233,6 +2233,25 @@ mod tests {
         assert_eq!(tree(&docs), ["note.txt"]);
         let err = staging.commit().unwrap_err().to_string();
         assert!(err.contains("staging folder was replaced"), "{err}");
+    }
+
+    /// A folder listing quoted in a refusal quoted each path whole: an output holding a chain
+    /// of nested folders (attack24: 20,000 levels) printed a message of tens of thousands of
+    /// characters. A quoted path now keeps its first and last 60 characters.
+    #[test]
+    fn a_refusal_quotes_a_long_path_by_its_two_ends() {
+        let tmp = tempfile::tempdir().unwrap();
+        let mut deep = tmp.path().to_path_buf();
+        for _ in 0..300 {
+            deep.push("abcd");
+        }
+        fs::create_dir_all(&deep).unwrap();
+        fs::write(deep.join("last.txt"), "x").unwrap();
+        let why = unlisted_files(tmp.path(), MANIFEST, &Default::default()).unwrap();
+        assert!(why.len() < 600, "{} characters: {why}", why.len());
+        assert!(why.contains("`abcd/abcd/"), "{why}");
+        assert!(why.contains("more characters) …"), "{why}");
+        assert!(why.contains("/abcd/last.txt`"), "{why}");
     }
 
     /// Folders made read-only after the fact (a backup tool, `chmod -R a-w`), down to mode
