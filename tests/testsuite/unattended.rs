@@ -370,10 +370,16 @@ fn a_run_killed_between_the_renames_is_recovered() {
     let out = beside(&t, "reports");
     assert_eq!(run_to(&t, &out, &[]).code, 0);
     let parent = out.parent().unwrap().to_path_buf();
-    // Killed after the first rename: only `.reports.previous` exists.
+    // Killed after the first rename: only `.reports.previous` exists. The log says what was
+    // put back.
     std::fs::rename(&out, parent.join(".reports.previous")).unwrap();
     let o = run_to(&t, &out, &[]);
     assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("was stopped (killed, or a power cut) as it put its output in place"),
+        "{o:?}"
+    );
     // Killed after the second rename, before the removal: both exist.
     let copy = parent.join(".reports.previous");
     crate::harness::copy_tree(&out, &copy);
@@ -386,6 +392,12 @@ fn a_run_killed_between_the_renames_is_recovered() {
     std::fs::write(out.join(".cohortpress-staging"), "").unwrap();
     let o = run_to(&t, &out, &[]);
     assert_eq!(o.code, 0, "{o:?}");
+    // A killed run's staging folder is not removed without a word (tryout24).
+    assert!(
+        o.stderr
+            .contains("did not finish (killed, or a power cut): its unfinished output"),
+        "{o:?}"
+    );
     no_leftovers(&parent, "reports");
     assert!(!out.join(".cohortpress-staging").exists());
     // Something foreign in the swap's way is never deleted.
