@@ -1737,3 +1737,36 @@ fn a_run_after_the_program_ended_says_so_in_its_log() {
     );
     assert!(!t.dir.join("nov").exists());
 }
+
+/// A month reported again by hand after the program's end, its period named on the command
+/// line (a monthly cron run that was missed, made up in May): its log read "no period after the
+/// end is ever reported" and "once no more data are expected, remove the line that starts it",
+/// words for a cron line without `--period`, which this run is not. Now neither line; the run
+/// is otherwise the same.
+#[test]
+fn a_month_named_after_the_programs_end_is_not_told_to_remove_a_cron_line() {
+    let t = ProgramTest::fixture("report-small");
+    for named in [
+        &["--period", "2026-08", "--out", "aug"][..],
+        &[
+            "--from",
+            "2026-08-01",
+            "--to",
+            "2026-08-31",
+            "--out",
+            "aug2",
+        ][..],
+    ] {
+        let mut args = vec!["run", "{dir}", "--as-of", "2026-12-02"];
+        args.extend_from_slice(named);
+        let r = t.run(&args);
+        assert!(r.code <= 1, "{}", r.stderr);
+        assert!(
+            r.stderr.contains("period 2026-08-01 to 2026-08-31"),
+            "{}",
+            r.stderr
+        );
+        assert!(!r.stderr.contains("the program ended"), "{}", r.stderr);
+        assert!(!r.stderr.contains("remove the line"), "{}", r.stderr);
+    }
+}
