@@ -121,6 +121,27 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     if let Some(note) = plan.ended_note() {
         tracing::info!("{note}");
     }
+    // The cron line's period went back: its output folder holds a later month than the one
+    // program.yaml's rule gives for this as-of date (a clock set back, a wrong `--as-of`), and
+    // the run replaced March's reports with December's without a word (tryout24).
+    if !plan.period_named
+        && plan.only.is_empty()
+        && plan.shard.is_none()
+        && let Some((from, to)) = published_period(&plan.out_dir, &plan.program.info.id)
+        && to > plan.period.to.to_string()
+    {
+        tracing::warn!(
+            "{} holds the reports of {from} to {to}, a later period than this run's ({} to {}, \
+             which program.yaml's `report.period` gives for the as-of date {}): this run \
+             replaces them with the earlier period's; if the machine's clock or --as-of is \
+             wrong, correct it and run again, which makes the later period's reports again; \
+             to make an earlier month on purpose, name it with --period and an --out of its own",
+            plan.out_dir.display(),
+            plan.period.from,
+            plan.period.to,
+            plan.as_of
+        );
+    }
 
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(plan.jobs)
