@@ -8,7 +8,7 @@
 //! | # | state | phase | the report offers |
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
-//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
+//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy, a fasting glucose below 70 mg/dL), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else; no amount while the last four weeks cannot tell whether it goes on, only more weigh-ins |
 //! | 3a | the same at a BMI below `low_bmi_losing_below` (20; from age 70 the higher `low_bmi_losing_below_70_plus`, 22) | `maintain` | that a rise at that BMI is no cause for concern; nothing to stop it |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month (in the program's last report, that it is the last); no amounts |
@@ -51,7 +51,7 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 11] = [
+pub const HOLDING_FLAGS: [&str; 12] = [
     "fast_loss",
     "fast_gain",
     // Clinical only in the period a step in the weigh-ins is first found: it may be a real
@@ -70,6 +70,11 @@ pub const HOLDING_FLAGS: [&str; 11] = [
     "low_bmi",
     "medication_review",
     "pregnancy",
+    // A fasting glucose below 70 mg/dL (3.9 mmol/L), level 1 hypoglycaemia (ADA Standards of
+    // Care 2025, §6; from memory): eating less or moving more lowers blood sugar further
+    // (common practice), so the way to a suggestion is through a clinician. A lab value in the
+    // diabetes range does not hold advice: loss helps there, and a caution goes before it.
+    "lab_low_glucose",
 ];
 
 /// Whether a BMI lies below a cut-off, by the `outcomes` module's rule for cut points (a value
@@ -1599,6 +1604,17 @@ mod tests {
             (
                 "pregnancy holds advice",
                 with(&|s| s.clinical_flags = vec!["pregnancy".into()], Plateau),
+                Phase::Clinician,
+            ),
+            // A fasting glucose of 3.5 mmol/L (63 mg/dL, flagged `lab_low_glucose`) in someone
+            // whose weight was rising back was met with "Eat about 450 kcal a day less than
+            // now", with no word of the low blood sugar before it.
+            (
+                "a fasting glucose below 70 mg/dL holds advice",
+                with(
+                    &|s| s.clinical_flags = vec!["lab_low_glucose".into()],
+                    Regaining,
+                ),
                 Phase::Clinician,
             ),
             (

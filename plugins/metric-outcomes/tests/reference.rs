@@ -1047,6 +1047,34 @@ fn medication_review_with_glucose_lowering_medicine() {
     assert_eq!(codes(&run(&c(fast), &p)), vec!["fast_loss"]);
 }
 
+/// A fasting glucose below 70 mg/dL (level 1 hypoglycaemia, ADA Standards of Care 2025 §6, from
+/// memory) on a glucose-lowering medicine is the risk the medication review is for, measured:
+/// 60 mg/dL at a steady weight raised `lab_low_glucose` alone, and nothing asked the prescriber
+/// about the dose. Without the medicine it stays `lab_low_glucose` alone.
+#[test]
+fn a_low_fasting_glucose_on_a_glucose_lowering_medicine_asks_for_a_medication_review() {
+    let mut p = steady_loser();
+    p.labs = vec![lab(
+        20,
+        LabTest::FastingGlucose,
+        60.0 / cohortpress_metric_api::units::GLUCOSE_MGDL_PER_MMOLL,
+        "mg/dL",
+        60.0,
+    )];
+    let steady = trend_output(30, 30, -0.875, |k| 100.0 - 0.125 * k as f64);
+    let c = ctx(day(0), day(30), Some(steady));
+    assert_eq!(codes(&run(&c, &p)), vec!["lab_low_glucose"]);
+    p.profile.flags = vec!["glucose-lowering-medication".into()];
+    let out = run(&c, &p);
+    assert_eq!(codes(&out), vec!["lab_low_glucose", "medication_review"]);
+    let m = &out.flags[1].message;
+    assert!(
+        m.contains("With a fasting glucose below 70 mg/dL (3.9 mmol/L), the dose"),
+        "{m}"
+    );
+    assert_eq!(out.flags[1].severity, FlagSeverity::Clinical);
+}
+
 /// A pregnancy noted in the profile raises a clinical flag (which holds every suggestion in
 /// the participant's report), whatever the weight does.
 #[test]
