@@ -1307,6 +1307,28 @@ fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         .slope
         .map(|s| format!(", at about {}", rate_words_to(s.value, f.units, decimals)))
         .unwrap_or_default();
+    // "Keep going" is advice to go on eating as now, so it is checked on the uncertain side like
+    // every amount in this section: where the careful end of the intake (the implied intake's
+    // lower bound, or the food log when lower) is under the floor, the report does not say
+    // that nothing needs to change, and names the floor. A woman losing 0.56 kg a week with
+    // an implied intake of 979 kcal a day (95 % 398 to 1,559) read "There is nothing you need
+    // to change: keep going", above a note that the model expects her weight to fall into
+    // severe thinness if eating goes on so (hand-made program, clinical27 helper).
+    let under_floor = f.implied.and_then(|i| {
+        let lower = i.lower.unwrap_or(i.value);
+        (careful_intake(lower, f.logged) < floor).then(|| {
+            format!(
+                "{}, you may be eating less than {} a day, the lowest intake usually advised without a clinician. Please do not eat less than {} a day without talking to a licensed clinician.",
+                if log_binds(lower, f.logged) {
+                    "Going by your food log"
+                } else {
+                    "At the careful end of the estimate from your weight trend"
+                },
+                fmt::kcal(floor),
+                fmt::kcal(floor)
+            )
+        })
+    });
     match too_fast {
         // A pace that may be too fast is not one to keep going at unchanged.
         Some(max) => {
@@ -1314,10 +1336,14 @@ fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
                 .push(format!("Your weight is coming down{rate}."));
             g.paragraphs.push(pace_caution(max, f, decimals));
         }
+        None if under_floor.is_some() => g
+            .paragraphs
+            .push(format!("Your weight is coming down{rate}.")),
         None => g.paragraphs.push(format!(
             "Your weight is coming down{rate}. There is nothing you need to change: keep going with the habits that are working for you."
         )),
     }
+    g.paragraphs.extend(under_floor);
     g
 }
 
@@ -1928,6 +1954,59 @@ mod tests {
             g.paragraphs[1].starts_with("The pace may be faster than the usual safe limit"),
             "{:?}",
             g.paragraphs
+        );
+    }
+
+    /// A woman losing 0.56 kg a week whose weight trend implies 979 kcal a day (95 % 398 to
+    /// 1,559), with no food log, read "There is nothing you need to change: keep going with the
+    /// habits that are working for you": the intake she was told to keep is below the 1,200
+    /// kcal floor at its careful end (and at its centre). Checked on the uncertain side like
+    /// every amount: no "nothing to change", and the floor named; going by the food log when
+    /// that is lower. Above the floor at the careful end, the encouragement stays.
+    #[test]
+    fn keep_going_is_not_said_when_the_careful_end_of_the_intake_is_under_the_floor() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.weight_kg = Some(64.9);
+        f.slope = Some(Est {
+            value: -0.56,
+            lower: Some(-0.62),
+            upper: Some(-0.5),
+        });
+        f.implied = Some(Est {
+            value: 979.0,
+            lower: Some(398.0),
+            upper: Some(1559.0),
+        });
+        let g = keep_going(&t, &f, 1200.0);
+        assert_eq!(
+            g.paragraphs,
+            vec![
+                "Your weight is coming down, at about 0.6 kg a week.".to_string(),
+                "At the careful end of the estimate from your weight trend, you may be eating less than 1,200 kcal a day, the lowest intake usually advised without a clinician. Please do not eat less than 1,200 kcal a day without talking to a licensed clinician.".to_string(),
+            ]
+        );
+        // The trend's lower bound above the floor, the food log under it.
+        f.implied = Some(Est {
+            value: 1700.0,
+            lower: Some(1300.0),
+            upper: Some(2100.0),
+        });
+        f.logged = Some(1150.0);
+        let g = keep_going(&t, &f, 1200.0);
+        assert!(
+            g.paragraphs[1].starts_with(
+                "Going by your food log, you may be eating less than 1,200 kcal a day"
+            ),
+            "{:?}",
+            g.paragraphs
+        );
+        // Both above it: keep going.
+        f.logged = Some(1400.0);
+        let g = keep_going(&t, &f, 1200.0);
+        assert_eq!(
+            g.paragraphs,
+            vec!["Your weight is coming down, at about 0.6 kg a week. There is nothing you need to change: keep going with the habits that are working for you.".to_string()]
         );
     }
 
