@@ -1526,12 +1526,22 @@ fn push_intake_flags(
     data: &ParticipantData,
 ) -> bool {
     let profile = &data.profile;
-    let intake: Vec<f64> = data
+    let rows: Vec<_> = data
         .intake
         .iter()
         .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
-        .map(|i| i.kcal)
         .collect();
+    let intake: Vec<f64> = rows.iter().map(|i| i.kcal).collect();
+    // The days the mean is over, named: the report prints the energy module's mean of the last
+    // 28 days beside it ("579 kcal/day, last 4 weeks" beside "577 kcal a day over 30 logged
+    // days" for June), and a clinician must see that they are two windows, not two readings.
+    let span = match (
+        rows.iter().map(|i| i.date).min(),
+        rows.iter().map(|i| i.date).max(),
+    ) {
+        (Some(a), Some(b)) => format!(" from {a} to {b}"),
+        _ => String::new(),
+    };
     let female = || ctx.setting_f64("intake_floor_female", 1200.0);
     let male = || ctx.setting_f64("intake_floor_male", 1500.0);
     // Sex not recorded: the higher floor (the careful side for a flag).
@@ -1563,7 +1573,7 @@ fn push_intake_flags(
             FlagSeverity::Clinical,
             format!(
                 "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                 days, below {very_low:.0} kcal a day.{trend} Eating this little is normally \
+                 days{span}, below {very_low:.0} kcal a day.{trend} Eating this little is normally \
                  done only under medical supervision; please review it with a licensed \
                  clinician."
             ),
@@ -1588,7 +1598,7 @@ fn push_intake_flags(
             implied_words(i)
         ),
         Some(IntakeEvidence::LogAndTrend(t, i)) => format!(
-            "Logged intake averaged about {:.0} kcal a day over {} logged days and was below \
+            "Logged intake averaged about {:.0} kcal a day over {} logged days{span} and was below \
              {floor:.0} kcal a day, {unsupervised}, on {} of them; the weight trend does not \
              rule it out: it implies {}. If the log is complete, consider discussing it \
              with a licensed clinician.",
@@ -1598,7 +1608,7 @@ fn push_intake_flags(
             implied_words(i)
         ),
         Some(IntakeEvidence::LogAlone(t)) => format!(
-            "Logged intake averaged about {:.0} kcal a day over {} logged days and was below \
+            "Logged intake averaged about {:.0} kcal a day over {} logged days{span} and was below \
              {floor:.0} kcal a day, {unsupervised}, on {} of them; the weigh-ins give no \
              implied intake to check it against. If the log is complete, consider discussing it with a \
              licensed clinician.",

@@ -600,6 +600,16 @@ fn intake_flags() {
     let out = run(&c, &p);
     assert_eq!(codes(&out), vec!["very_low_intake"]);
     assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    // The days the mean is over are named: the report prints the energy module's mean of the
+    // last 28 days beside it (577 kcal a day over the 30 logged days of June printed beside
+    // "579 kcal/day, last 4 weeks", with nothing to say they were two windows).
+    assert!(
+        out.flags[0]
+            .message
+            .contains("averaged about 750 kcal a day over 4 logged days from 2027-03-02 to 2027-03-05, below 800"),
+        "{}",
+        out.flags[0].message
+    );
 
     // Only three logged days in the period (the fourth is after it): too few to judge.
     let p = with_intake(base, &[(1, 700.0), (2, 700.0), (3, 700.0), (20, 700.0)]);
