@@ -538,7 +538,11 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
             .filter(|f| f.severity == FlagSeverity::Clinical)
             .map(|f| f.code.clone())
             .collect(),
-        bmi: outcomes.and_then(|o| o.bmi_current_kg_m2),
+        bmi: current_bmi(
+            outcomes.and_then(|o| o.bmi_current_kg_m2),
+            v.trend.as_ref().and_then(|t| t.current_weight_kg.value),
+            data.profile.height.m(),
+        ),
         bmi_baseline: outcomes.and_then(|o| o.bmi_baseline_kg_m2),
         change_percent: outcomes.and_then(|o| o.change_percent),
         target_percent: data.profile.targets.weight_change_percent,
@@ -550,6 +554,19 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
         still_rising: v.trend.as_ref().is_some_and(still_rising),
         older: data.profile.age_on(plan.period.to) >= cohortpress_metric_outcomes::OLDER_ADULT_AGE,
     }
+}
+
+/// The current BMI the decision table reads: the `outcomes` module's, or, when that module did
+/// not run, the same formula (WHO 2000, TRS 894: kg/m²) on the trend's current weight. The
+/// table's BMI rows must not depend on which modules a program runs: without `outcomes`, a
+/// woman at BMI 16.9 whose weight was rising back was told "Eat about 300 kcal a day less than
+/// now" (no BMI, so neither the underweight row nor the low-BMI rise row could apply).
+fn current_bmi(outcomes: Option<f64>, trend_kg: Option<f64>, height_m: f64) -> Option<f64> {
+    outcomes.or_else(|| {
+        trend_kg
+            .filter(|kg| kg.is_finite() && *kg > 0.0 && height_m > 0.0)
+            .map(|kg| cohortpress_metric_outcomes::bmi(kg, height_m))
+    })
 }
 
 /// Whether the last four weeks' slope interval lies wholly above zero, in a window the trend
@@ -785,9 +802,21 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
         }
         Phase::Clinician => {
             let mut g = empty(phase, "Before any change", floor);
-            g.paragraphs.push(
-                "Some of your figures (see “Points to note” below) should be looked at by a licensed clinician before you change how much you eat or how active you are. So this month the report makes no suggestions for change.".into(),
-            );
+            let flagged = state
+                .clinical_flags
+                .iter()
+                .any(|c| HOLDING_FLAGS.contains(&c.as_str()));
+            // Row 2 without a flag that holds advice is the BMI alone (no `outcomes` module to
+            // raise `low_bmi` and put it under "Points to note"): the paragraph names it, so
+            // that it points to nothing that is not there.
+            g.paragraphs.push(match state.bmi {
+                Some(b) if !flagged => format!(
+                    "Your BMI is about {} kg/m², below {}, the lower limit of the range the WHO calls normal weight. A licensed clinician should look at your weight before you change how much you eat or how active you are, so this month the report makes no suggestions for change.",
+                    fmt::fixed(cohortpress_metric_outcomes::bmi_one_decimal(b), 1),
+                    cut_words(t.underweight_bmi_below)
+                ),
+                _ => "Some of your figures (see “Points to note” below) should be looked at by a licensed clinician before you change how much you eat or how active you are. So this month the report makes no suggestions for change.".into(),
+            });
             g.paragraphs.push(
                 "Please contact the program staff, who can help you arrange that conversation. If you feel unwell, contact your own doctor.".into(),
             );
@@ -1955,6 +1984,33 @@ mod tests {
             "{:?}",
             g.paragraphs
         );
+    }
+
+    /// Without the `outcomes` module the decision table had no BMI: a woman at BMI 16.9 whose
+    /// weight was rising back was told "Eat about 300 kcal a day less than now". The BMI is then
+    /// the trend weight over the height squared, the underweight row applies, and its paragraph
+    /// names the BMI (no `low_bmi` flag stands under "Points to note" to point to).
+    #[test]
+    fn without_the_outcomes_module_the_bmi_rows_still_apply() {
+        let t = Thresholds::default();
+        assert_eq!(current_bmi(Some(23.0), Some(46.0), 1.65), Some(23.0));
+        let b = current_bmi(None, Some(46.0), 1.65).unwrap();
+        assert!((b - 46.0 / (1.65 * 1.65)).abs() < 1e-12, "{b}");
+        assert_eq!(current_bmi(None, None, 1.65), None);
+        let mut s = st(Regaining);
+        s.bmi = Some(b);
+        s.change_percent = None;
+        assert_eq!(decide(&s, &t), Phase::Clinician);
+        let g = compose(Phase::Clinician, &s, &t, &facts());
+        assert!(g.options.is_empty());
+        assert_eq!(
+            g.paragraphs[0],
+            "Your BMI is about 16.9 kg/m², below 18.5, the lower limit of the range the WHO calls normal weight. A licensed clinician should look at your weight before you change how much you eat or how active you are, so this month the report makes no suggestions for change."
+        );
+        // With a flag that holds advice, the flags are the reason, under "Points to note".
+        s.clinical_flags = vec!["low_bmi".into()];
+        let g = compose(Phase::Clinician, &s, &t, &facts());
+        assert!(g.paragraphs[0].starts_with("Some of your figures (see “Points to note” below)"));
     }
 
     /// A woman losing 0.56 kg a week whose weight trend implies 979 kcal a day (95 % 398 to
