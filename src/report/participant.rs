@@ -404,17 +404,25 @@ pub fn build(
                 weigh_days.iter().filter(|d| **d >= from).count()
             },
         ),
-        summary: summary(
-            &v,
-            units,
-            plan.period.to,
-            change_measured,
-            data.weights
-                .iter()
-                .map(|w| w.date)
-                .filter(|d| *d <= plan.period.to)
-                .max(),
-        ),
+        summary: {
+            let mut rows = summary(
+                &v,
+                units,
+                plan.period.to,
+                change_measured,
+                data.weights
+                    .iter()
+                    .map(|w| w.date)
+                    .filter(|d| *d <= plan.period.to)
+                    .max(),
+            );
+            if !rows.is_empty()
+                && let Some(words) = away_scale_words(&data.weights, plan.period.to, units)
+            {
+                rows.push(Kv::new("Weighed", &words));
+            }
+            rows
+        },
         milestones: v
             .outcomes
             .as_ref()
@@ -579,6 +587,59 @@ fn summary(
         summary.push(Kv::new("Weight", "no weigh-in recorded yet"));
     }
     summary
+}
+
+/// What "Where you stand" says of someone whose every weigh-in up to `to` comes from a scale
+/// other than their own (`source` set and not naming "home": a clinic's, a pharmacy's), `None`
+/// otherwise. The trend takes a source's offset (clothes and shoes, another scale) off its
+/// readings only against at least 10 days of home weigh-ins, so such a person's current and
+/// starting weight and BMI are as that scale read them: a participant weighed clothed at the
+/// clinic once a month read "Current weight (trend) 92.4 kg" and "BMI 35.2" with no word that
+/// they include what she wore (tryout24). Clothes and shoes weigh about 0.5–1.5 kg (common
+/// practice, as the trend's prior says). The change since the start is not affected when
+/// every weigh-in is taken the same way.
+fn away_scale_words(
+    weights: &[cohortpress_metric_api::WeighIn],
+    to: NaiveDate,
+    units: UnitSystem,
+) -> Option<String> {
+    let mut sources = std::collections::BTreeSet::new();
+    for w in weights.iter().filter(|w| w.date <= to) {
+        match w.source.as_deref() {
+            Some(s) if !cohortpress_metric_trend::is_home_source(Some(s)) => {
+                sources.insert(s);
+            }
+            _ => return None,
+        }
+    }
+    if sources.is_empty() {
+        return None;
+    }
+    let names: Vec<String> = sources
+        .iter()
+        .take(3)
+        .map(|s| {
+            let mut name: String = s.chars().take(40).collect();
+            if name.len() < s.len() {
+                name.push('…');
+            }
+            format!("“{name}”")
+        })
+        .collect();
+    let more = match sources.len() {
+        n if n > 3 => format!(" and {} more", n - 3),
+        _ => String::new(),
+    };
+    Some(format!(
+        "only on a scale other than your own (your weigh-ins are marked {}{more}), so the \
+         weights and BMI above are as that scale read them, with whatever you wore (clothes and \
+         shoes often add {} to {}); without weigh-ins on a home scale that part cannot be \
+         taken off. Your change since you started is not affected when you are weighed the same \
+         way each time.",
+        names.join(", "),
+        fmt::weight(0.5, units),
+        fmt::weight(1.5, units),
+    ))
 }
 
 /// The BMI row: the BMI to one decimal, never rounded across the range its WHO class names
