@@ -630,6 +630,14 @@ pub fn read_id_map(path: &Path) -> Result<BTreeMap<String, String>, String> {
     Ok(map)
 }
 
+/// Most by which the body heights imported for one adult may differ and still be taken (the
+/// latest), cm. Repeated measurements of an adult's height agree to about 1 cm, and adults lose
+/// about 1 cm a decade from middle age (common practice; from memory): heights further apart
+/// are a unit or typing error in one of them, and the wrong one moves the BMI across a class
+/// (180 cm and a later 168 cm at 78 kg: BMI 24.1 or 27.6, loss advice for the second), so
+/// the profile is left for a person to fill in, naming them.
+pub const HEIGHT_AGREE_CM: f64 = 3.0;
+
 /// The files of one participant folder, as text.
 pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String)> {
     let mut files = Vec::new();
@@ -666,9 +674,29 @@ pub fn participant_files(id: &str, p: &PatientData) -> Vec<(&'static str, String
         )
         .expect("string"),
     }
-    // The latest height.
+    // The latest height, when the heights agree; heights that do not are not chosen between.
+    let cm = |(_, v, u): &(NaiveDate, f64, &str)| if *u == "in" { v * 2.54 } else { *v };
+    let spread = p.heights.iter().map(cm).fold(f64::NEG_INFINITY, f64::max)
+        - p.heights.iter().map(cm).fold(f64::INFINITY, f64::min);
     match p.heights.iter().max_by_key(|h| h.0) {
-        Some((_, v, u)) => writeln!(profile, "height: {v} {u}").expect("string"),
+        Some((_, v, u)) if spread <= HEIGHT_AGREE_CM => {
+            writeln!(profile, "height: {v} {u}").expect("string")
+        }
+        Some(_) => {
+            let mut seen: Vec<String> = p
+                .heights
+                .iter()
+                .map(|(d, v, u)| format!("{v} {u} on {d}"))
+                .collect();
+            seen.sort();
+            seen.dedup();
+            writeln!(
+                profile,
+                "# height: 170 cm   (the body height observations differ by {spread:.1} cm: {}; fill in the right one)",
+                seen.join(", ")
+            )
+            .expect("string")
+        }
         None => profile.push_str("# height: 170 cm   (no body height observation: fill it in)\n"),
     }
     if let Some(d) = first {
@@ -1100,6 +1128,46 @@ mod tests {
         assert_eq!(
             get("labs.csv"),
             "date,test,value,unit\n2027-03-02,diastolic_bp,82,mmHg\n2027-03-02,fasting_glucose,101,mg/dL\n2027-03-02,hba1c,5.9,%\n2027-03-02,systolic_bp,128,mmHg\n2027-03-02,waist,36.5,in\n"
+        );
+    }
+
+    /// Two body heights of one patient 12 cm apart (180 cm, then 168 cm: one of them a typing
+    /// or unit error) gave `height: 168 cm`, the latest, silently: at 78 kg a BMI of 27.6
+    /// ("pre-obese", loss advice) where the other gives 24.1. Heights that differ by more than
+    /// HEIGHT_AGREE_CM are not chosen between: the line is left for a person to fill in, naming
+    /// them. Heights that agree (170.2 cm and 67 in, 170.18 cm) give the latest, as before.
+    #[test]
+    fn heights_that_disagree_are_left_to_fill_in() {
+        let mut b = bundle();
+        let entries = b["entry"].as_array_mut().unwrap();
+        let h = |id: &str, day: &str, v: f64, u: &str| {
+            let mut o = entries
+                .iter()
+                .find(|e| e["resource"]["id"] == "h1")
+                .unwrap()
+                .clone();
+            o["resource"]["id"] = json!(id);
+            o["resource"]["effectiveDateTime"] = json!(day);
+            o["resource"]["valueQuantity"] = json!({"value": v, "unit": u,
+                "system": "http://unitsofmeasure.org", "code": u});
+            o
+        };
+        let agree = h("h2", "2027-03-05", 67.0, "[in_i]");
+        let apart = h("h3", "2027-03-06", 158.0, "cm");
+        entries.push(agree);
+        let mut imp = Imported::default();
+        imp.add(&b, &BTreeMap::new(), "b.json");
+        let files = participant_files("LW-0001", &imp.patients["7c1b2f7e"]);
+        assert!(files[0].1.contains("\nheight: 67 in\n"), "{}", files[0].1);
+        b["entry"].as_array_mut().unwrap().push(apart);
+        let mut imp = Imported::default();
+        imp.add(&b, &BTreeMap::new(), "b.json");
+        let files = participant_files("LW-0001", &imp.patients["7c1b2f7e"]);
+        let profile = &files[0].1;
+        assert!(!profile.contains("\nheight:"), "{profile}");
+        assert!(
+            profile.contains("# height: 170 cm   (the body height observations differ by 12.2 cm: 158 cm on 2027-03-06, 170.2 cm on 2027-03-01, 67 in on 2027-03-05; fill in the right one)"),
+            "{profile}"
         );
     }
 

@@ -533,6 +533,11 @@ pub fn parse_length(text: &str) -> Result<Length, QuantityError> {
         };
         values.push((v, u));
     }
+    if let [(ft, Some(LenUnit::Ft)), ..] = values.as_slice()
+        && let Some(e) = decimal_feet_problem(&pairs[0].0, *ft, values.len() > 1)
+    {
+        return Err(e);
+    }
     let len = match values.as_slice() {
         [(_, None)] => {
             return Err(qerr(format!("`{}` has no unit", text.trim())));
@@ -553,6 +558,40 @@ pub fn parse_length(text: &str) -> Result<Length, QuantityError> {
         _ => return Err(qerr(format!("cannot read `{}` as a length", text.trim()))),
     };
     Ok(len)
+}
+
+/// Why a number of feet written with decimals (`num`, read as `ft`) is not taken as decimal
+/// feet, or `None` when it may be.
+///
+/// `5.11 ft` is 5 ft 11 in (180.3 cm) to most people who write it, and 5.11 feet (155.8 cm)
+/// read literally; a BMI from the wrong one is off by a third (80 kg: 24.6 or 33.0), enough to
+/// advise a person of healthy weight to lose. `5.5 ft` is 5 ft 5 in in some places and 5 ft 6
+/// in in others. As with stones and pounds (`14.12 st`), a value that reads both ways is not
+/// guessed: decimals that could be inches (a whole number of 0 to 11 after the point, and not
+/// all zeros) are refused with both readings, and feet with decimals before inches (`5.5 ft
+/// 2 in`) are refused too. `5.75 ft` (75 is no number of inches) and `6.0 ft` are read.
+fn decimal_feet_problem(num: &str, ft: f64, with_inches: bool) -> Option<QuantityError> {
+    let (whole, decimals) = num.trim().split_once('.')?;
+    let as_inches: u32 = decimals.parse().ok()?;
+    if with_inches && ft.fract() != 0.0 {
+        return Some(QuantityError {
+            message: format!("`{num}` feet with decimals, then inches"),
+            hint: "write whole feet and inches (`5 ft 6 in`), or the height in cm".into(),
+        });
+    }
+    if as_inches == 0 || as_inches > 11 {
+        return None;
+    }
+    let feet: f64 = whole.parse().ok()?;
+    let both = Length::from_ft_in(feet, f64::from(as_inches));
+    Some(QuantityError {
+        message: format!(
+            "`{num} ft` could be {whole} ft {as_inches} in ({:.1} cm) or {num} feet ({:.1} cm)",
+            both.cm(),
+            Length::from_ft_in(ft, 0.0).cm()
+        ),
+        hint: format!("write feet and inches (`{whole} ft {as_inches} in`), or the height in cm"),
+    })
 }
 
 fn byte_at(s: &str, char_index: usize) -> usize {
@@ -688,6 +727,30 @@ mod tests {
         assert!((cm("1.68 m") - 168.0).abs() < 1e-9);
         assert!((cm("6 ft") - 182.88).abs() < 1e-9);
         assert_eq!(cm(" 170.5 CM "), 170.5);
+        // Decimal feet that cannot be feet and inches, or are whole feet, are read.
+        assert!((cm("5.75 ft") - 69.0 * 2.54).abs() < 1e-9);
+        assert!((cm("6.0 ft") - 182.88).abs() < 1e-9);
+    }
+
+    /// `5.11 ft` was read as 5.11 feet, 155.8 cm, where most who write it mean 5 ft 11 in
+    /// (180.3 cm): at 80 kg a BMI of 33.0 instead of 24.6, and loss advice for a person of
+    /// healthy weight. Decimals that could be inches are not guessed, as for stones.
+    #[test]
+    fn decimal_feet_that_could_be_feet_and_inches_are_refused() {
+        let e = parse_length("5.11 ft").unwrap_err();
+        assert_eq!(
+            e.message,
+            "`5.11 ft` could be 5 ft 11 in (180.3 cm) or 5.11 feet (155.8 cm)"
+        );
+        assert!(e.hint.contains("`5 ft 11 in`"), "{e:?}");
+        for s in ["5.5 ft", "5.10'", "5.1 feet", "5.05 ft", "5.6ft"] {
+            assert!(parse_length(s).is_err(), "{s}");
+        }
+        let e = parse_length("5.5 ft 2 in").unwrap_err();
+        assert!(
+            e.message.contains("feet with decimals, then inches"),
+            "{e:?}"
+        );
     }
 
     #[test]

@@ -109,7 +109,7 @@ pub fn reason(code: &str) -> &'static str {
             "Latest fasting glucose below 70 mg/dL (3.9 mmol/L), low blood sugar (ADA Standards of Care)"
         }
         "medication_review" => {
-            "Takes a glucose-lowering medicine while losing fast or eating little: the dose may need review"
+            "Takes a glucose-lowering medicine while losing fast, eating little or with a low fasting glucose: the dose may need review"
         }
         "fast_gain" => {
             "Weight going up faster than the program's limit for weeks on end (fluid, or a change of scale?)"

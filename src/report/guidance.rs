@@ -8,7 +8,7 @@
 //! | # | state | phase | the report offers |
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
-//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
+//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy, a fasting glucose below 70 mg/dL), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else; no amount while the last four weeks cannot tell whether it goes on, only more weigh-ins |
 //! | 3a | the same at a BMI below `low_bmi_losing_below` (20; from age 70 the higher `low_bmi_losing_below_70_plus`, 22) | `maintain` | that a rise at that BMI is no cause for concern; nothing to stop it |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month (in the program's last report, that it is the last); no amounts |
@@ -51,7 +51,7 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 11] = [
+pub const HOLDING_FLAGS: [&str; 12] = [
     "fast_loss",
     "fast_gain",
     // Clinical only in the period a step in the weigh-ins is first found: it may be a real
@@ -70,6 +70,11 @@ pub const HOLDING_FLAGS: [&str; 11] = [
     "low_bmi",
     "medication_review",
     "pregnancy",
+    // A fasting glucose below 70 mg/dL (3.9 mmol/L), level 1 hypoglycaemia (ADA Standards of
+    // Care 2025, §6; from memory): eating less or moving more lowers blood sugar further
+    // (common practice), so the way to a suggestion is through a clinician. A lab value in the
+    // diabetes range does not hold advice: loss helps there, and a caution goes before it.
+    "lab_low_glucose",
 ];
 
 /// Whether a BMI lies below a cut-off, by the `outcomes` module's rule for cut points (a value
@@ -552,7 +557,11 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
             .filter(|f| f.severity == FlagSeverity::Clinical)
             .map(|f| f.code.clone())
             .collect(),
-        bmi: outcomes.and_then(|o| o.bmi_current_kg_m2),
+        bmi: current_bmi(
+            outcomes.and_then(|o| o.bmi_current_kg_m2),
+            v.trend.as_ref().and_then(|t| t.current_weight_kg.value),
+            data.profile.height.m(),
+        ),
         bmi_baseline: outcomes.and_then(|o| o.bmi_baseline_kg_m2),
         change_percent: outcomes.and_then(|o| o.change_percent),
         target_percent: data.profile.targets.weight_change_percent,
@@ -564,6 +573,19 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
         still_rising: v.trend.as_ref().is_some_and(still_rising),
         older: data.profile.age_on(plan.period.to) >= cohortpress_metric_outcomes::OLDER_ADULT_AGE,
     }
+}
+
+/// The current BMI the decision table reads: the `outcomes` module's, or, when that module did
+/// not run, the same formula (WHO 2000, TRS 894: kg/m²) on the trend's current weight. The
+/// table's BMI rows must not depend on which modules a program runs: without `outcomes`, a
+/// woman at BMI 16.9 whose weight was rising back was told "Eat about 300 kcal a day less than
+/// now" (no BMI, so neither the underweight row nor the low-BMI rise row could apply).
+fn current_bmi(outcomes: Option<f64>, trend_kg: Option<f64>, height_m: f64) -> Option<f64> {
+    outcomes.or_else(|| {
+        trend_kg
+            .filter(|kg| kg.is_finite() && *kg > 0.0 && height_m > 0.0)
+            .map(|kg| cohortpress_metric_outcomes::bmi(kg, height_m))
+    })
 }
 
 /// Whether the last four weeks' slope interval lies wholly above zero, in a window the trend
@@ -799,9 +821,21 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
         }
         Phase::Clinician => {
             let mut g = empty(phase, "Before any change", floor);
-            g.paragraphs.push(
-                "Some of your figures (see “Points to note” below) should be looked at by a licensed clinician before you change how much you eat or how active you are. So this month the report makes no suggestions for change.".into(),
-            );
+            let flagged = state
+                .clinical_flags
+                .iter()
+                .any(|c| HOLDING_FLAGS.contains(&c.as_str()));
+            // Row 2 without a flag that holds advice is the BMI alone (no `outcomes` module to
+            // raise `low_bmi` and put it under "Points to note"): the paragraph names it, so
+            // that it points to nothing that is not there.
+            g.paragraphs.push(match state.bmi {
+                Some(b) if !flagged => format!(
+                    "Your BMI is about {} kg/m², below {}, the lower limit of the range the WHO calls normal weight. A licensed clinician should look at your weight before you change how much you eat or how active you are, so this month the report makes no suggestions for change.",
+                    fmt::fixed(cohortpress_metric_outcomes::bmi_one_decimal(b), 1),
+                    cut_words(t.underweight_bmi_below)
+                ),
+                _ => "Some of your figures (see “Points to note” below) should be looked at by a licensed clinician before you change how much you eat or how active you are. So this month the report makes no suggestions for change.".into(),
+            });
             g.paragraphs.push(
                 "Please contact the program staff, who can help you arrange that conversation. If you feel unwell, contact your own doctor.".into(),
             );
@@ -1321,6 +1355,28 @@ fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         .slope
         .map(|s| format!(", at about {}", rate_words_to(s.value, f.units, decimals)))
         .unwrap_or_default();
+    // "Keep going" is advice to go on eating as now, so it is checked on the uncertain side like
+    // every amount in this section: where the careful end of the intake (the implied intake's
+    // lower bound, or the food log when lower) is under the floor, the report does not say
+    // that nothing needs to change, and names the floor. A woman losing 0.56 kg a week with
+    // an implied intake of 979 kcal a day (95 % 398 to 1,559) read "There is nothing you need
+    // to change: keep going", above a note that the model expects her weight to fall into
+    // severe thinness if eating goes on so (hand-made program, clinical27 helper).
+    let under_floor = f.implied.and_then(|i| {
+        let lower = i.lower.unwrap_or(i.value);
+        (careful_intake(lower, f.logged) < floor).then(|| {
+            format!(
+                "{}, you may be eating less than {} a day, the lowest intake usually advised without a clinician. Please do not eat less than {} a day without talking to a licensed clinician.",
+                if log_binds(lower, f.logged) {
+                    "Going by your food log"
+                } else {
+                    "At the careful end of the estimate from your weight trend"
+                },
+                fmt::kcal(floor),
+                fmt::kcal(floor)
+            )
+        })
+    });
     match too_fast {
         // A pace that may be too fast is not one to keep going at unchanged.
         Some(max) => {
@@ -1328,10 +1384,14 @@ fn keep_going(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
                 .push(format!("Your weight is coming down{rate}."));
             g.paragraphs.push(pace_caution(max, f, decimals));
         }
+        None if under_floor.is_some() => g
+            .paragraphs
+            .push(format!("Your weight is coming down{rate}.")),
         None => g.paragraphs.push(format!(
             "Your weight is coming down{rate}. There is nothing you need to change: keep going with the habits that are working for you."
         )),
     }
+    g.paragraphs.extend(under_floor);
     g
 }
 
@@ -1618,6 +1678,17 @@ mod tests {
             (
                 "pregnancy holds advice",
                 with(&|s| s.clinical_flags = vec!["pregnancy".into()], Plateau),
+                Phase::Clinician,
+            ),
+            // A fasting glucose of 3.5 mmol/L (63 mg/dL, flagged `lab_low_glucose`) in someone
+            // whose weight was rising back was met with "Eat about 450 kcal a day less than
+            // now", with no word of the low blood sugar before it.
+            (
+                "a fasting glucose below 70 mg/dL holds advice",
+                with(
+                    &|s| s.clinical_flags = vec!["lab_low_glucose".into()],
+                    Regaining,
+                ),
                 Phase::Clinician,
             ),
             (
@@ -1931,6 +2002,86 @@ mod tests {
             g.paragraphs[1].starts_with("The pace may be faster than the usual safe limit"),
             "{:?}",
             g.paragraphs
+        );
+    }
+
+    /// Without the `outcomes` module the decision table had no BMI: a woman at BMI 16.9 whose
+    /// weight was rising back was told "Eat about 300 kcal a day less than now". The BMI is then
+    /// the trend weight over the height squared, the underweight row applies, and its paragraph
+    /// names the BMI (no `low_bmi` flag stands under "Points to note" to point to).
+    #[test]
+    fn without_the_outcomes_module_the_bmi_rows_still_apply() {
+        let t = Thresholds::default();
+        assert_eq!(current_bmi(Some(23.0), Some(46.0), 1.65), Some(23.0));
+        let b = current_bmi(None, Some(46.0), 1.65).unwrap();
+        assert!((b - 46.0 / (1.65 * 1.65)).abs() < 1e-12, "{b}");
+        assert_eq!(current_bmi(None, None, 1.65), None);
+        let mut s = st(Regaining);
+        s.bmi = Some(b);
+        s.change_percent = None;
+        assert_eq!(decide(&s, &t), Phase::Clinician);
+        let g = compose(Phase::Clinician, &s, &t, &facts());
+        assert!(g.options.is_empty());
+        assert_eq!(
+            g.paragraphs[0],
+            "Your BMI is about 16.9 kg/m², below 18.5, the lower limit of the range the WHO calls normal weight. A licensed clinician should look at your weight before you change how much you eat or how active you are, so this month the report makes no suggestions for change."
+        );
+        // With a flag that holds advice, the flags are the reason, under "Points to note".
+        s.clinical_flags = vec!["low_bmi".into()];
+        let g = compose(Phase::Clinician, &s, &t, &facts());
+        assert!(g.paragraphs[0].starts_with("Some of your figures (see “Points to note” below)"));
+    }
+
+    /// A woman losing 0.56 kg a week whose weight trend implies 979 kcal a day (95 % 398 to
+    /// 1,559), with no food log, read "There is nothing you need to change: keep going with the
+    /// habits that are working for you": the intake she was told to keep is below the 1,200
+    /// kcal floor at its careful end (and at its centre). Checked on the uncertain side like
+    /// every amount: no "nothing to change", and the floor named; going by the food log when
+    /// that is lower. Above the floor at the careful end, the encouragement stays.
+    #[test]
+    fn keep_going_is_not_said_when_the_careful_end_of_the_intake_is_under_the_floor() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.weight_kg = Some(64.9);
+        f.slope = Some(Est {
+            value: -0.56,
+            lower: Some(-0.62),
+            upper: Some(-0.5),
+        });
+        f.implied = Some(Est {
+            value: 979.0,
+            lower: Some(398.0),
+            upper: Some(1559.0),
+        });
+        let g = keep_going(&t, &f, 1200.0);
+        assert_eq!(
+            g.paragraphs,
+            vec![
+                "Your weight is coming down, at about 0.6 kg a week.".to_string(),
+                "At the careful end of the estimate from your weight trend, you may be eating less than 1,200 kcal a day, the lowest intake usually advised without a clinician. Please do not eat less than 1,200 kcal a day without talking to a licensed clinician.".to_string(),
+            ]
+        );
+        // The trend's lower bound above the floor, the food log under it.
+        f.implied = Some(Est {
+            value: 1700.0,
+            lower: Some(1300.0),
+            upper: Some(2100.0),
+        });
+        f.logged = Some(1150.0);
+        let g = keep_going(&t, &f, 1200.0);
+        assert!(
+            g.paragraphs[1].starts_with(
+                "Going by your food log, you may be eating less than 1,200 kcal a day"
+            ),
+            "{:?}",
+            g.paragraphs
+        );
+        // Both above it: keep going.
+        f.logged = Some(1400.0);
+        let g = keep_going(&t, &f, 1200.0);
+        assert_eq!(
+            g.paragraphs,
+            vec!["Your weight is coming down, at about 0.6 kg a week. There is nothing you need to change: keep going with the habits that are working for you.".to_string()]
         );
     }
 

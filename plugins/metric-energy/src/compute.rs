@@ -741,7 +741,7 @@ pub(crate) fn run(
     out.tables
         .push(options_table(&p, &s, cur.bw, cur.slope, cur.implied));
     out.tables.push(plateau_table(&p, &s, enrolled));
-    push_gap_flag(&mut out, &cur);
+    push_gap_flag(&mut out, &cur, s.window_days);
     // Logged intakes below the usual floors are flagged by the outcomes module, which owns the
     // safety flags; this module only refuses to recommend going below them.
     Ok(out)
@@ -1444,7 +1444,7 @@ fn push_forecast(out: &mut ModuleOutput, p: &Person<'_>, start: &Start, fc: Fore
 }
 
 /// The flag for logs far from the weight trend (whole gap interval beyond ±`GAP_FLAG_KCAL`).
-fn push_gap_flag(out: &mut ModuleOutput, cur: &Current) {
+fn push_gap_flag(out: &mut ModuleOutput, cur: &Current, window_days: u64) {
     let (Some(g), Some(l), Some(i)) = (gap(cur), cur.logged, cur.implied) else {
         return;
     };
@@ -1455,6 +1455,7 @@ fn push_gap_flag(out: &mut ModuleOutput, cur: &Current) {
             EnergyFlag::LogsInconsistentWithTrend.as_str(),
             FlagSeverity::Notice,
             gap_flag_message(
+                window_days,
                 l,
                 i.value,
                 i.lower.unwrap_or(f64::NAN),
@@ -1466,10 +1467,11 @@ fn push_gap_flag(out: &mut ModuleOutput, cur: &Current) {
 
 /// The words of the logs-versus-trend flag, which the participant's report prints under
 /// "Points to note": in the report's own unit words ("kcal a day", as its prose says; it read
-/// "kcal/d" beside the energy table's "kcal/day").
-fn gap_flag_message(logged: f64, implied: f64, lower: f64, upper: f64) -> String {
+/// "kcal/d" beside the energy table's "kcal/day"), over the window it is of (the outcomes
+/// module's intake flags, printed beside it, average the period's logged days).
+fn gap_flag_message(window_days: u64, logged: f64, implied: f64, lower: f64, upper: f64) -> String {
     format!(
-        "Logged intake averages {logged:.0} kcal a day, while the weight trend implies about \
+        "Over the last {window_days} days, logged intake averages {logged:.0} kcal a day, while the weight trend implies about \
          {implied:.0} kcal a day (95 % interval {lower:.0} to {upper:.0}). Food logs often \
          differ from what the weight trend shows (Archer et al. 2013); this is worth a \
          conversation about logging, not a judgement."

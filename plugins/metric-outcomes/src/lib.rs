@@ -76,9 +76,11 @@
 //! * `lab_low_glucose` (clinical): the latest fasting glucose is below 70 mg/dL (3.9 mmol/L),
 //!   ADA's level 1 hypoglycaemia (also a censored `< 3.0 mmol/L`).
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
-//!   `fast_loss`, `low_intake`, `very_low_intake` or `below_resting_intake` was raised, or the `energy` module (when it
+//!   `fast_loss`, `low_intake`, `very_low_intake`, `below_resting_intake` or `lab_low_glucose`
+//!   was raised, or the `energy` module (when it
 //!   runs before this one, as in the usual order) raised `very_low_implied_intake`: the weight
-//!   trend implies an intake below a very-low-calorie diet's (risk of low blood sugar).
+//!   trend implies an intake below a very-low-calorie diet's (risk of low blood sugar). A
+//!   fasting glucose below 70 mg/dL is that risk measured.
 //! * `below_resting_intake` (clinical): over the last [`BELOW_RESTING_WINDOW_DAYS`] (28) days
 //!   of the period (from enrolment when that is later; at least [`BELOW_RESTING_MIN_DAYS`]), intake was below the person's resting energy expenditure (Mifflin–St Jeor
 //!   at the current weight and age: Mifflin et al. 1990, Am J Clin Nutr 51:241), on the weight
@@ -878,7 +880,7 @@ impl MetricModule for OutcomesModule {
                     OutcomesFlag::MedicationReview.as_str(),
                     "flag",
                     "",
-                    "glucose-lowering medicine with fast loss, low intake, intake below resting energy, or a trend that implies a very low intake",
+                    "glucose-lowering medicine with fast loss, low intake, intake below resting energy, a trend that implies a very low intake, or a fasting glucose below 70 mg/dL",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::BelowRestingIntake.as_str(),
@@ -931,7 +933,7 @@ impl MetricModule for OutcomesModule {
         let low_intake = push_intake_flags(&mut output, ctx, data);
         let below_resting = push_below_resting_flag(&mut output, ctx, data, w.current);
         push_low_bmi_flag(&mut output, ctx, bmi1, &w, profile.age_on(ctx.period.to));
-        push_lab_flags(&mut output, &labs, profile.sex);
+        let low_glucose = push_lab_flags(&mut output, &labs, profile.sex);
         // The energy module, when it ran before this one, says when the weight trend implies
         // an intake below a very-low-calorie diet's (its clinical flag): on a glucose-lowering
         // medicine that is the same risk as low logged intake.
@@ -940,10 +942,24 @@ impl MetricModule for OutcomesModule {
                 .iter()
                 .any(|f| f.code == ENERGY_VERY_LOW_IMPLIED_INTAKE)
         });
+        // A fasting glucose below 70 mg/dL on a glucose-lowering medicine is the risk this
+        // review is for, measured: the dose may now lower blood sugar too far (ADA Standards of
+        // Care 2025, §6: a glucose below 70 mg/dL is level 1 hypoglycaemia, and the treatment
+        // plan of someone on a glucose-lowering medicine who has it is to be re-evaluated; from
+        // memory).
         if profile.flags.iter().any(|f| f == GLUCOSE_LOWERING_FLAG)
-            && (fast || low_intake || below_resting || implied_low)
+            && (fast || low_intake || below_resting || implied_low || low_glucose)
         {
-            push_medication_flag(&mut output, fast, low_intake, below_resting, implied_low);
+            push_medication_flag(
+                &mut output,
+                MedicationCauses {
+                    fast,
+                    low_intake,
+                    below_resting,
+                    implied_low,
+                    low_glucose,
+                },
+            );
         }
         if profile.flags.iter().any(|f| f == PREGNANCY_FLAG) {
             // Weight-loss targets, the intake floors and the energy model are for adults who
@@ -1510,12 +1526,22 @@ fn push_intake_flags(
     data: &ParticipantData,
 ) -> bool {
     let profile = &data.profile;
-    let intake: Vec<f64> = data
+    let rows: Vec<_> = data
         .intake
         .iter()
         .filter(|i| ctx.period.contains(i.date) && i.date >= profile.enrolled)
-        .map(|i| i.kcal)
         .collect();
+    let intake: Vec<f64> = rows.iter().map(|i| i.kcal).collect();
+    // The days the mean is over, named: the report prints the energy module's mean of the last
+    // 28 days beside it ("579 kcal/day, last 4 weeks" beside "577 kcal a day over 30 logged
+    // days" for June), and a clinician must see that they are two windows, not two readings.
+    let span = match (
+        rows.iter().map(|i| i.date).min(),
+        rows.iter().map(|i| i.date).max(),
+    ) {
+        (Some(a), Some(b)) => format!(" from {a} to {b}"),
+        _ => String::new(),
+    };
     let female = || ctx.setting_f64("intake_floor_female", 1200.0);
     let male = || ctx.setting_f64("intake_floor_male", 1500.0);
     // Sex not recorded: the higher floor (the careful side for a flag).
@@ -1531,11 +1557,6 @@ fn push_intake_flags(
     // the logged intake of the last four weeks, a few days shorter than a month, and printed
     // 879 kcal beside this message's 877 "over 30 logged days" with nothing to tell the two
     // apart.
-    let window = format!(
-        "from {} to {}",
-        ctx.period.from.max(profile.enrolled),
-        ctx.period.to
-    );
     let implied = implied_intake(ctx);
     // Very low subsumes low: one flag, the more serious one.
     if days >= MIN_INTAKE_DAYS && mean < very_low {
@@ -1556,7 +1577,7 @@ fn push_intake_flags(
             FlagSeverity::Clinical,
             format!(
                 "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                 days {window}, below {very_low:.0} kcal a day.{trend} Eating this little is normally \
+                 days{span}, below {very_low:.0} kcal a day.{trend} Eating this little is normally \
                  done only under medical supervision; please review it with a licensed \
                  clinician."
             ),
@@ -1581,7 +1602,7 @@ fn push_intake_flags(
             implied_words(i)
         ),
         Some(IntakeEvidence::LogAndTrend(t, i)) => format!(
-            "Logged intake averaged about {:.0} kcal a day over {} logged days {window} and was below \
+            "Logged intake averaged about {:.0} kcal a day over {} logged days{span} and was below \
              {floor:.0} kcal a day, {unsupervised}, on {} of them; the weight trend does not \
              rule it out: it implies {}. If the log is complete, consider discussing it \
              with a licensed clinician.",
@@ -1591,7 +1612,7 @@ fn push_intake_flags(
             implied_words(i)
         ),
         Some(IntakeEvidence::LogAlone(t)) => format!(
-            "Logged intake averaged about {:.0} kcal a day over {} logged days {window} and was below \
+            "Logged intake averaged about {:.0} kcal a day over {} logged days{span} and was below \
              {floor:.0} kcal a day, {unsupervised}, on {} of them; the weigh-ins give no \
              implied intake to check it against. If the log is complete, consider discussing it with a \
              licensed clinician.",
@@ -1759,8 +1780,10 @@ fn cut_words(v: f64) -> String {
     }
 }
 
-/// The lab-range flags, judged on the latest value of each test.
-fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Sex>) {
+/// The lab-range flags, judged on the latest value of each test; returns whether
+/// `lab_low_glucose` was raised.
+fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Sex>) -> bool {
+    let mut low_glucose = false;
     let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
     for l in labs {
         latest.insert(l.test, l);
@@ -1772,7 +1795,10 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Se
             LabCategory::PrediabetesRange => {
                 (OutcomesFlag::LabPrediabetesRange, FlagSeverity::Notice)
             }
-            LabCategory::BelowNormalRange => (OutcomesFlag::LabLowGlucose, FlagSeverity::Clinical),
+            LabCategory::BelowNormalRange => {
+                low_glucose = true;
+                (OutcomesFlag::LabLowGlucose, FlagSeverity::Clinical)
+            }
             _ => continue,
         };
         // A censored value is printed as the bound it is (`> 14.0 %`), never as the number.
@@ -1799,27 +1825,36 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Se
             ),
         );
     }
+    low_glucose
 }
 
-/// The `medication_review` flag (raised by the caller only with fast loss, low logged intake,
-/// or a weight trend that implies a very low intake).
-fn push_medication_flag(
-    output: &mut ModuleOutput,
+/// What calls for a medication review (see [`push_medication_flag`]).
+#[derive(Debug, Clone, Copy, Default)]
+struct MedicationCauses {
     fast: bool,
     low_intake: bool,
     below_resting: bool,
     implied_low: bool,
-) {
+    /// The latest fasting glucose is below 70 mg/dL (`lab_low_glucose`).
+    low_glucose: bool,
+}
+
+/// The `medication_review` flag (raised by the caller only with fast loss, low logged intake,
+/// a weight trend that implies a very low intake, or a fasting glucose below 70 mg/dL).
+fn push_medication_flag(output: &mut ModuleOutput, c: MedicationCauses) {
     let mut causes = Vec::new();
-    if fast {
+    if c.fast {
         causes.push("fast weight loss");
     }
-    if low_intake {
+    if c.low_intake {
         causes.push("a low intake");
-    } else if below_resting {
+    } else if c.below_resting {
         causes.push("an intake below resting energy for weeks");
-    } else if implied_low {
+    } else if c.implied_low {
         causes.push("a weight trend that only a very low intake would explain");
+    }
+    if c.low_glucose {
+        causes.push("a fasting glucose below 70 mg/dL (3.9 mmol/L)");
     }
     let why = causes.join(" and ");
     output.push_flag(

@@ -600,13 +600,23 @@ fn intake_flags() {
     let out = run(&c, &p);
     assert_eq!(codes(&out), vec!["very_low_intake"]);
     assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    // The days the mean is over are named: the report prints the energy module's mean of the
+    // last 28 days beside it (577 kcal a day over the 30 logged days of June printed beside
+    // "579 kcal/day, last 4 weeks", with nothing to say they were two windows).
+    assert!(
+        out.flags[0]
+            .message
+            .contains("averaged about 750 kcal a day over 4 logged days from 2027-03-02 to 2027-03-05, below 800"),
+        "{}",
+        out.flags[0].message
+    );
 
     // Only three logged days in the period (the fourth is after it): too few to judge.
     let p = with_intake(base, &[(1, 700.0), (2, 700.0), (3, 700.0), (20, 700.0)]);
     assert!(run(&c, &p).flags.is_empty());
 }
 
-/// The intake flags name the days their log covers. The report's energy section gives the
+/// The intake flags name the days their log covers (its first and last logged day). The report's energy section gives the
 /// logged intake over the last four weeks; the clinician item gave its own figure "over 30
 /// logged days" (the period) with no dates: a fast loser's April report read 879 kcal in one
 /// place and 877 in the other, two numbers for one thing as far as a reader could tell.
@@ -617,8 +627,8 @@ fn the_intake_flags_name_the_days_of_their_log() {
         .insert("energy".into(), energy_output(1900.0, 1450.0, 2350.0));
     let mut man = participant(Sex::Male, 172.7);
     man.weights = vec![weigh(day(0), 70.0), weigh(day(29), 70.0)];
-    let from = man.profile.enrolled.max(day(0));
-    let window = format!("logged days from {from} to {}", day(29));
+    // The first and the last logged day (days 1, 4, … 22).
+    let window = format!("logged days from {} to {}", day(1), day(22));
     for (kcal, code) in [(1400.0, "low_intake"), (700.0, "very_low_intake")] {
         let days: Vec<(i64, f64)> = (0..8).map(|k| (3 * k + 1, kcal)).collect();
         let out = run(&c, &with_intake(man.clone(), &days));
@@ -1074,6 +1084,34 @@ fn medication_review_with_glucose_lowering_medicine() {
     p.profile.flags.clear();
     let fast = trend_output(30, 30, -1.4, |k| 100.0 - 0.2 * k as f64);
     assert_eq!(codes(&run(&c(fast), &p)), vec!["fast_loss"]);
+}
+
+/// A fasting glucose below 70 mg/dL (level 1 hypoglycaemia, ADA Standards of Care 2025 §6, from
+/// memory) on a glucose-lowering medicine is the risk the medication review is for, measured:
+/// 60 mg/dL at a steady weight raised `lab_low_glucose` alone, and nothing asked the prescriber
+/// about the dose. Without the medicine it stays `lab_low_glucose` alone.
+#[test]
+fn a_low_fasting_glucose_on_a_glucose_lowering_medicine_asks_for_a_medication_review() {
+    let mut p = steady_loser();
+    p.labs = vec![lab(
+        20,
+        LabTest::FastingGlucose,
+        60.0 / cohortpress_metric_api::units::GLUCOSE_MGDL_PER_MMOLL,
+        "mg/dL",
+        60.0,
+    )];
+    let steady = trend_output(30, 30, -0.875, |k| 100.0 - 0.125 * k as f64);
+    let c = ctx(day(0), day(30), Some(steady));
+    assert_eq!(codes(&run(&c, &p)), vec!["lab_low_glucose"]);
+    p.profile.flags = vec!["glucose-lowering-medication".into()];
+    let out = run(&c, &p);
+    assert_eq!(codes(&out), vec!["lab_low_glucose", "medication_review"]);
+    let m = &out.flags[1].message;
+    assert!(
+        m.contains("With a fasting glucose below 70 mg/dL (3.9 mmol/L), the dose"),
+        "{m}"
+    );
+    assert_eq!(out.flags[1].severity, FlagSeverity::Clinical);
 }
 
 /// A pregnancy noted in the profile raises a clinical flag (which holds every suggestion in

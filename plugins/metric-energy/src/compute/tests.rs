@@ -1308,8 +1308,8 @@ fn a_pregnancy_gives_no_implied_intake_and_says_why() {
 #[test]
 fn the_logs_versus_trend_flag_speaks_in_kcal_a_day() {
     assert_eq!(
-        super::gap_flag_message(1600.2, 2895.4, 2265.0, 3524.0),
-        "Logged intake averages 1600 kcal a day, while the weight trend implies about 2895 kcal a \
+        super::gap_flag_message(28, 1600.2, 2895.4, 2265.0, 3524.0),
+        "Over the last 28 days, logged intake averages 1600 kcal a day, while the weight trend implies about 2895 kcal a \
          day (95 % interval 2265 to 3524). Food logs often differ from what the weight trend \
          shows (Archer et al. 2013); this is worth a conversation about logging, not a judgement."
     );
