@@ -971,7 +971,24 @@ fn headline(
         }
         None => {}
     }
+    // A rise from the lowest trend weight confirmed by level is named whatever the last four
+    // weeks' slope says (a sparse weigher's regain is otherwise invisible here), and first: the
+    // verdict with its evidence, then the last four weeks in words that do not call the same
+    // weight a plateau ("edged up …, slowly enough to count as a plateau. Your trend weight is
+    // now about 1.4 kg above its lowest point" read as two verdicts at odds).
+    let regain = trend
+        .filter(|_| status != Status::Regaining)
+        .and_then(|t| guidance::regain_words(t, units));
     let lead = match status {
+        Status::Plateau | Status::Stable if regain.is_some() => {
+            if trend.is_some_and(guidance::still_rising) {
+                format!("Over the last four weeks it has kept edging up ({rate_s}).")
+            } else if trend.is_some_and(guidance::still_falling) {
+                format!("Over the last four weeks it has edged down slowly ({rate_s}).")
+            } else {
+                "Over the last four weeks it has held about level.".to_string()
+            }
+        }
         // "Going down by" carries the sign already: "by about 1.32 kg/week", not "−1.32".
         Status::Losing => format!(
             "Your weight trend is going down, by about {} {}/week over the last four weeks.",
@@ -1043,14 +1060,12 @@ fn headline(
     } else {
         lead
     };
-    // A rise from the lowest trend weight confirmed by level is named whatever the last four
-    // weeks' slope says (a sparse weigher's regain is otherwise invisible here).
-    let regain = trend
-        .filter(|_| status != Status::Regaining)
-        .and_then(|t| guidance::regain_words(t, units))
-        .map(|w| format!(" Your trend weight is now {w}."))
-        .unwrap_or_default();
-    format!("{lead}{regain}{since}")
+    match regain {
+        Some(w) => format!(
+            "Your weight has come back up from its lowest point: your trend weight is now {w}. {lead}{since}"
+        ),
+        None => format!("{lead}{since}"),
+    }
 }
 
 /// The numbers behind a plateau reading, in plain words and the program's display units (the
@@ -2655,9 +2670,9 @@ mod activity_unread_tests {
         let h = plain_headline(&t);
         assert_eq!(
             h,
-            "There are too few recent weigh-ins to see how your weight moved over the last four \
-             weeks. Your trend weight is now about 5.3 kg above its lowest point so far (95 % \
-             range 3.8 to 6.8 kg)."
+            "Your weight has come back up from its lowest point: your trend weight is now about \
+             5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg). There are too few \
+             recent weigh-ins to see how your weight moved over the last four weeks."
         );
         let v = BuiltinViews {
             trend: Some(t.clone()),
@@ -2719,6 +2734,55 @@ mod activity_unread_tests {
         assert_eq!(
             summary(&v, UnitSystem::Metric, to, true, None)[0].label,
             "Current weight (trend)"
+        );
+    }
+
+    /// A slow, steady regain after a loss: the trend module's status is `plateau` (a slope
+    /// inside the plateau band) and its verdict `regaining` (a rise from the lowest point
+    /// confirmed). The headline read "Your weight has edged up over the last four weeks
+    /// (+0.15 kg/week), slowly enough to count as a plateau. Your trend weight is now about
+    /// 1.4 kg above its lowest point so far …": two verdicts at odds. The confirmed rise comes
+    /// first, with its evidence, and the last four weeks are told without "plateau".
+    #[test]
+    fn a_confirmed_regain_comes_first_and_is_not_called_a_plateau() {
+        use cohortpress_metric_trend::view::RegainVerdict;
+        let mut t = TrendView {
+            status: Status::Plateau,
+            regain_verdict: Some(RegainVerdict::Regaining),
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week = Interval {
+            value: Some(0.15),
+            lower: Some(0.04),
+            upper: Some(0.26),
+        };
+        t.regain_kg = Interval {
+            value: Some(1.42),
+            lower: Some(1.01),
+            upper: Some(1.83),
+        };
+        let h = plain_headline(&t);
+        assert_eq!(
+            h,
+            "Your weight has come back up from its lowest point: your trend weight is now about \
+             1.4 kg above its lowest point so far (95 % range 1.0 to 1.8 kg). Over the last four \
+             weeks it has kept edging up (+0.15 kg/week)."
+        );
+        // Level, or a stable status: still no plateau beside the rise.
+        t.slope_kg_per_week.lower = Some(-0.05);
+        for status in [Status::Plateau, Status::Stable] {
+            t.status = status;
+            let h = plain_headline(&t);
+            assert!(h.starts_with("Your weight has come back up"), "{h}");
+            assert!(h.ends_with("it has held about level."), "{h}");
+            assert!(!h.contains("plateau"), "{h}");
+        }
+        // Without the confirmed rise the plateau is named as before.
+        t.status = Status::Plateau;
+        t.regain_verdict = Some(RegainVerdict::NotRegaining);
+        assert_eq!(
+            plain_headline(&t),
+            "Your weight has held steady over the last four weeks (a plateau)."
         );
     }
 

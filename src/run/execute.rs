@@ -999,6 +999,14 @@ fn process_participant(
             &summary,
             plan.period.to,
             &loaded.rows,
+            {
+                let [intake, walking, both] = ctx.ctx.guidance.loss_options_offered();
+                tidy::ReportOffers {
+                    intake,
+                    walking,
+                    both,
+                }
+            },
         )));
         // Clinician follow-up list: this participant's flags, when the program turns it on.
         rec.followup = report::followup::for_participant(
