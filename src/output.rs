@@ -1632,10 +1632,16 @@ fn open_new_staging(dir: &Path, access: Access) -> Result<StagingHandle, Staging
 
 /// The identity of the staging folder: of the folder its handle holds (unix), else of the
 /// folder at its name.
+///
+/// Read through the standard library's metadata, as [`folder_id`] reads the folder at its name
+/// for the commit's check, so both give the device number the same way: `rustix`'s `fstat`
+/// gives the platform's `dev_t`, an `i32` on macOS and OpenBSD, which did not compile there as
+/// the `u64` of [`FolderId`].
 #[cfg(unix)]
 fn handle_id(handle: &StagingHandle, _dir: &Path) -> std::io::Result<FolderId> {
-    let st = rustix::fs::fstat(handle)?;
-    Ok((st.st_dev, st.st_ino))
+    use std::os::unix::fs::MetadataExt;
+    let m = File::from(handle.try_clone()?).metadata()?;
+    Ok((m.dev(), m.ino()))
 }
 
 #[cfg(not(unix))]

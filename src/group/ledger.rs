@@ -544,6 +544,18 @@ impl Ledger {
             Err(std::fs::TryLockError::Error(e)) => return Err(io_err(&lock_path, e)),
         }
         let folder = LedgerFolder::open(dir)?;
+        // The folder opened must be the one whose lock the run holds: one moved away and
+        // replaced by a link (or another folder) while the run waited for another run's lock
+        // would have had the key and the ledger made where the link leads, a folder never
+        // checked to be a ledger's.
+        if !folder.holds(LOCK_FILE, &lock)? {
+            return Err(io_err(
+                dir,
+                "was replaced (by a link or another folder) while this run waited for its lock; \
+                 nothing was written to it or to where it now leads; check what is there and run \
+                 again",
+            ));
+        }
         let ledger_path = dir.join(LEDGER_FILE);
         let mut new = false;
         // Read like an input (no link followed, regular files only): a FIFO
@@ -986,6 +998,28 @@ impl LedgerFolder {
         }
     }
 
+    /// Whether the file `name` in the folder is `file` (the same device and inode), never
+    /// following a link at its name; elsewhere than unix, always.
+    fn holds(&self, name: &str, file: &std::fs::File) -> std::io::Result<bool> {
+        #[cfg(unix)]
+        {
+            use rustix::fs::{Mode, OFlags};
+            use std::os::unix::fs::MetadataExt;
+            let flags = OFlags::RDONLY | OFlags::NOFOLLOW | OFlags::NONBLOCK | OFlags::CLOEXEC;
+            let here = match rustix::fs::openat(&self.fd, name, flags, Mode::empty()) {
+                Ok(fd) => std::fs::File::from(fd).metadata()?,
+                Err(_) => return Ok(false),
+            };
+            let held = file.metadata()?;
+            Ok(here.dev() == held.dev() && here.ino() == held.ino())
+        }
+        #[cfg(not(unix))]
+        {
+            let _ = (name, file);
+            Ok(true)
+        }
+    }
+
     /// Makes the new file `name`, owner-only from its creation; fails when anything, a link
     /// included, is at its name.
     fn create_owner_only(&self, name: &str) -> std::io::Result<std::fs::File> {
@@ -1072,5 +1106,106 @@ mod tests {
         let saved = parse_ledger(&moved, &std::fs::read(moved.join(LEDGER_FILE)).unwrap()).unwrap();
         assert_eq!(saved.releases.len(), 1);
         assert_eq!(saved.releases[0].period_to, "2026-09-30");
+    }
+    /// The ledger's folder was opened for its handle after the lock was taken, by its name: a
+    /// run that waited for another run's lock (minutes, for a large program) opened whatever
+    /// was at that name by then. With the folder moved away and a link left in its place while
+    /// it waited, the run made its key (and then its ledger) where the link led, in a folder
+    /// that was never checked to be a ledger's. Now the handle is checked to hold the lock file
+    /// the run locked; a folder replaced meanwhile stops the run, and nothing is made there.
+    #[cfg(unix)]
+    #[test]
+    fn a_ledger_folder_swapped_for_a_link_while_the_run_waits_for_its_lock_is_refused() {
+        use std::sync::Mutex;
+        use tracing_subscriber::layer::{Context, SubscriberExt};
+
+        /// At the run's "waiting for another run" line: swaps the folder for a link, then
+        /// ends the other run (releases its lock).
+        struct SwapWhileWaiting {
+            holder: Mutex<Option<std::fs::File>>,
+            dir: PathBuf,
+            moved: PathBuf,
+            other: PathBuf,
+        }
+        struct Message(String);
+        impl tracing::field::Visit for Message {
+            fn record_debug(&mut self, f: &tracing::field::Field, v: &dyn std::fmt::Debug) {
+                if f.name() == "message" {
+                    self.0 = format!("{v:?}");
+                }
+            }
+        }
+        impl<S: tracing::Subscriber> tracing_subscriber::Layer<S> for SwapWhileWaiting {
+            fn on_event(&self, event: &tracing::Event<'_>, _: Context<'_, S>) {
+                let mut m = Message(String::new());
+                event.record(&mut m);
+                if m.0.contains("waiting for another run")
+                    && let Some(lock) = self.holder.lock().unwrap().take()
+                {
+                    std::fs::rename(&self.dir, &self.moved).unwrap();
+                    std::os::unix::fs::symlink(&self.other, &self.dir).unwrap();
+                    drop(lock);
+                }
+            }
+        }
+
+        let tmp = tempfile::tempdir().unwrap();
+        let dir = tmp.path().join("state");
+        drop(Ledger::open(&dir).unwrap());
+        let other = tmp.path().join("other");
+        std::fs::create_dir(&other).unwrap();
+        std::fs::write(other.join("notes.txt"), "kept").unwrap();
+        // Another run holds the lock.
+        let holder = std::fs::File::options()
+            .write(true)
+            .open(dir.join(LOCK_FILE))
+            .unwrap();
+        holder.lock().unwrap();
+        let swap = SwapWhileWaiting {
+            holder: Mutex::new(Some(holder)),
+            dir: dir.clone(),
+            moved: tmp.path().join("moved"),
+            other: other.clone(),
+        };
+        let subscriber = tracing_subscriber::registry().with(swap);
+        let opened = tracing::subscriber::with_default(subscriber, || Ledger::open(&dir));
+        let err = opened.expect_err("refused").to_string();
+        assert!(err.contains("was replaced"), "{err}");
+        assert!(err.contains("while this run waited for its lock"), "{err}");
+        let mut names: Vec<String> = std::fs::read_dir(&other)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        names.sort();
+        assert_eq!(names, ["notes.txt"]);
+    }
+    /// A ledger folder the user reaches through a link of their own (`--state` naming a link
+    /// to a folder on another disk) is used as before: the link is followed as the run opens
+    /// the folder, and the lock, the key and the ledger are all in the folder it leads to.
+    #[cfg(unix)]
+    #[test]
+    fn a_ledger_folder_named_through_a_users_link_is_used() {
+        let tmp = tempfile::tempdir().unwrap();
+        let real = tmp.path().join("disk/state");
+        std::fs::create_dir_all(&real).unwrap();
+        let link = tmp.path().join("state");
+        std::os::unix::fs::symlink(&real, &link).unwrap();
+        let mut ledger = Ledger::open(&link).unwrap();
+        let release = release_record(
+            "p",
+            "2026-09-01",
+            "2026-09-30",
+            "2026-10-01",
+            line(),
+            Published::default(),
+            String::new(),
+        );
+        ledger.record(release).unwrap();
+        drop(ledger);
+        assert!(std::fs::symlink_metadata(&link).unwrap().is_symlink());
+        let saved = parse_ledger(&real, &std::fs::read(real.join(LEDGER_FILE)).unwrap()).unwrap();
+        assert_eq!(saved.releases.len(), 1);
+        assert!(real.join(KEY_FILE).is_file());
+        assert_eq!(Ledger::open(&link).unwrap().releases.len(), 1);
     }
 }
