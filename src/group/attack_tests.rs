@@ -2303,3 +2303,78 @@ fn a_week_mean_printed_again_after_one_person_could_reach_it_says_nothing_of_the
         );
     }
 }
+
+/// Which section's week mean the split's rule withholds must not depend on who has a value.
+/// Three banded sites: Aspen 16, Birch 15, Cedar 14 started; the first release withholds
+/// Cedar's means of weeks 9–12. In the second, three late enrolees at Cedar (they cannot reach
+/// week 3) hide its number started, and one Birch participant who had enrolled too late to
+/// reach week 9 now can: Birch's weeks 9–12 are withheld for that reason. Whether that person
+/// weighs in or not, the second release must print the same means (taking Birch, whose week's
+/// people changed only when they weighed in, printed Cedar's means then and withheld them
+/// otherwise).
+#[test]
+fn the_week_mean_withheld_beside_a_newcomer_to_the_week_does_not_tell_whether_they_weigh_in() {
+    let min = 11;
+    let mut base = three_sites_some_stopped();
+    for p in base.iter_mut() {
+        let site = p.row.groups["site"].clone();
+        let to = match site.as_str() {
+            "Aspen" => "Cedar",
+            "Cedar" => "Aspen",
+            s => s,
+        };
+        p.row.groups.insert("site".into(), to.into());
+        p.row.weeks_in_period = Some(12);
+    }
+    // A Birch participant weighed every week (not one of the first three, who stop).
+    let late = base
+        .iter()
+        .position(|p| p.row.groups["site"] == "Birch" && p.row.weekly_change_percent.len() == 12)
+        .expect("a Birch participant weighed every week");
+    let mut first = base.clone();
+    first[late].row.weeks_in_period = Some(8);
+    first[late].row.weekly_change_percent.truncate(8);
+    let second = |weighs_in: bool| {
+        let mut people = base.clone();
+        if !weighs_in {
+            people[late].row.weekly_change_percent.truncate(8);
+        }
+        for i in 45..48 {
+            let mut p = person(&format!("P{i:02}"), "Cedar", -1.0, true, -1.0);
+            p.row.weeks_in_period = Some(2);
+            p.row.weekly_change_percent = (0..2).map(|w| (w, -0.3 * f64::from(w + 1))).collect();
+            people.push(p);
+        }
+        people
+    };
+    let printed = |rel: &Release| -> BTreeMap<(String, u64), bool> {
+        sections_by_label(&rel.report)
+            .into_iter()
+            .flat_map(|(label, s)| {
+                s["stats"]["trajectory"]
+                    .as_array()
+                    .cloned()
+                    .unwrap_or_default()
+                    .into_iter()
+                    .filter_map(move |w| {
+                        let week = w["week"].as_u64()?;
+                        Some((
+                            (label.clone(), week),
+                            w["mean_percent"].get("value").is_some(),
+                        ))
+                    })
+            })
+            .collect()
+    };
+    let with = publish_in_order(&[first.clone(), second(true)], min);
+    let without = publish_in_order(&[first, second(false)], min);
+    let before = printed(&with[0]);
+    assert_eq!(
+        before.get(&("Cedar".to_string(), 9)),
+        Some(&false),
+        "the first release withholds Cedar's week 10: {before:?}"
+    );
+    let (a, b) = (printed(&with[1]), printed(&without[1]));
+    let differ: Vec<_> = a.iter().filter(|(k, v)| b.get(*k) != Some(*v)).collect();
+    assert!(differ.is_empty(), "the printed means tell: {differ:?}");
+}

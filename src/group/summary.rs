@@ -1180,6 +1180,26 @@ pub(super) fn build(
     let mut forced_weeks: HashMap<*const Draft, BTreeSet<u32>> = HashMap::new();
     // The people of every sum earlier releases printed (the ledger's), for
     // [`audit_week_means`]: a section's week whose people were summed before may be known.
+    // The week means earlier releases printed, each with who could have had a value in it
+    // (by dates): a section's week is taken as printed before when one of the same week was
+    // printed over the same such people, a test that rests on nothing the report hides (who
+    // has a value does). Sums of an older ledger carry no such people; while it holds any, a
+    // week whose people, as they are, were summed before counts as printed too.
+    let weeks_printed: HashSet<(String, Vec<u64>, Vec<u64>)> = history
+        .sum_labels
+        .iter()
+        .zip(&history.sum_scopes)
+        .filter_map(|(label, ix)| match ix.as_slice() {
+            [a, b] => Some((
+                label.clone(),
+                history.scopes.get(*a)?.clone(),
+                history.scopes.get(*b)?.clone(),
+            )),
+            _ => None,
+        })
+        .collect();
+    let legacy = history.sum_scopes.len() < history.sums.len()
+        || history.sum_scopes.iter().any(Vec::is_empty);
     let printed_before: HashSet<BTreeSet<u64>> = history
         .sums
         .iter()
@@ -1716,12 +1736,24 @@ pub(super) fn build(
                             || forced.is_some_and(|f| f.contains(&w))
                     })
                     .collect(),
+                forced: weeks
+                    .iter()
+                    .map(|&w| forced.is_some_and(|f| f.contains(&w)))
+                    .collect(),
 
                 known: weeks
                     .iter()
-                    .map(|w| {
-                        let people = raw.week_people(*w, &tokens);
-                        !people.is_empty() && printed_before.contains(&people)
+                    .map(|&w| {
+                        let [open, kept] = raw.week_open(w, &tokens);
+                        let key = (
+                            Line::Week(w).name(),
+                            open.into_iter().collect(),
+                            kept.into_iter().collect(),
+                        );
+                        weeks_printed.contains(&key) || {
+                            let people = raw.week_people(w, &tokens);
+                            legacy && !people.is_empty() && printed_before.contains(&people)
+                        }
                     })
                     .collect(),
                 mean: weeks
@@ -1952,13 +1984,18 @@ struct WeekSection {
     /// True n of each week (in the order of the report's weeks).
     n: Vec<u64>,
     /// Whether the sum audit withheld each week's mean, or the rule on week means printed
-    /// again after who could have a value in them changed (`mean` then holds it as if printed,
-    /// so that the split's own choice in [`audit_week_means`] is made as without that rule).
+    /// again after who could have a value in them changed (`forced`).
     withdrawn: Vec<bool>,
+    /// Whether each week's mean is withheld because who could have a value in it changed by a
+    /// few people since a release printed it. `mean` then holds it as if printed: the split's
+    /// rule in [`audit_week_means`] applies as without it, and takes another section.
+    forced: Vec<bool>,
     /// Each week's mean as printed (rounded to [`MEAN_STEP`]), `None` where it is not printed.
     mean: Vec<Option<f64>>,
-    /// Whether an earlier release printed a sum over exactly each week's people (this week's
-    /// mean, or another figure of the same people): its mean may be known to the reader.
+    /// Whether an earlier release printed this week's mean over the same people who could
+    /// have a value in it (by dates; with an older ledger also: a sum over exactly the week's
+    /// people): its mean may be known to the reader. Who has a value is not used: the choice
+    /// of the section withheld would tell it.
     known: Vec<bool>,
 }
 
@@ -2103,11 +2140,14 @@ fn audit_week_bands(
 /// The section withheld must stay withheld in later releases, whose figures for a past week
 /// are those of the same people: three late enrolees at the smallest site made another the
 /// smallest, and the two releases together printed every site's mean of weeks 9–12 (Aspen 11
-/// or 12 of 14 again). So a section whose week's people an earlier release summed (the
-/// ledger's sums: that week's mean, or any figure of exactly those people) is withheld only
-/// when every section's were; among the others, the one with the fewest people started as
-/// printed (a hidden number started is not used: the choice would tell which hidden count is
-/// the smaller). A withheld mean is not recorded in the ledger as published.
+/// or 12 of 14 again). So a section whose week's mean an earlier release printed over the same
+/// people who could have a value in it (by enrolment and withdrawal dates, the ledger's
+/// `sum_scopes`) is withheld only when every section's were; among the others, the one with the
+/// fewest people started as printed (a hidden number started is not used: the choice would tell
+/// which hidden count is the smaller). Who has a value that week is not used either: beside a
+/// section withheld because a joiner could have a value ([`moved`]), taking the section whose
+/// week's people changed told whether the joiner has one. A section withheld by that rule is
+/// never the one taken. A withheld mean is not recorded in the ledger as published.
 fn audit_week_means(
     sections: &[WeekSection],
     parts: &[Vec<usize>],
@@ -2140,15 +2180,20 @@ fn audit_week_means(
             // A section whose week an earlier release may have printed is not the one
             // withheld while another will do: withholding it now and printing, beside it, a
             // mean withheld before would give the reader every mean of the week.
+            // A section withheld by the rule on means printed again is not the one taken: it
+            // may be withheld only this time, and the section the split's rule withheld before
+            // must stay withheld (the split's rule applies as if it were printed).
             let take = with
                 .iter()
                 .copied()
+                .filter(|&i| !sections[i].forced[w])
                 .min_by_key(|&i| {
                     let s = &sections[i];
                     (s.known[w], s.started.unwrap_or(u64::MAX), i)
-                })
-                .expect("not empty");
-            out.push((take, w));
+                });
+            if let Some(take) = take {
+                out.push((take, w));
+            }
         }
     }
     out
