@@ -299,6 +299,23 @@ pub fn printable(s: &str) -> std::borrow::Cow<'_, str> {
     std::borrow::Cow::Owned(out)
 }
 
+/// [`printable`] `s`, with what lies beyond its first and last `keep` characters replaced by
+/// `…` and how many were left out: for a path a message quotes from a folder's listing, where
+/// a chain of 20,000 nested folders was quoted whole (40,000 characters in one message).
+pub fn printable_clipped(s: &str, keep: usize) -> String {
+    let shown = printable(s);
+    let n = shown.chars().count();
+    if n <= 2 * keep + 1 {
+        return shown.into_owned();
+    }
+    let head: String = shown.chars().take(keep).collect();
+    let tail: String = shown.chars().skip(n - keep).collect();
+    format!(
+        "{head}… ({} more characters) …{tail}",
+        thousands(n - 2 * keep)
+    )
+}
+
 /// Counts of errors and warnings in a list of diagnostics.
 pub fn count(diags: &[Diagnostic]) -> (usize, usize) {
     let errors = diags

@@ -195,6 +195,10 @@ pub struct Staging {
     dir: PathBuf,
     /// The staging folder's identity when it was made ([`folder_id`]).
     staging_id: FolderId,
+    /// The staging folder, opened once as it was made (never through a link): every file and
+    /// folder of the output is made relative to it, so a `.NAME.staging` swapped for a link
+    /// while the run goes on never has anything made where the link leads.
+    handle: StagingHandle,
     previous: PathBuf,
     written: Mutex<Vec<OutputFile>>,
     folders: Mutex<std::collections::BTreeSet<PathBuf>>,
@@ -615,7 +619,7 @@ fn unlisted_files(
         if unlisted {
             count += 1;
             if found.len() < 5 {
-                found.push(format!("`{}`", crate::diag::printable(&rel)));
+                found.push(format!("`{}`", crate::diag::printable_clipped(&rel, 60)));
             }
         }
     }
@@ -941,22 +945,25 @@ impl Staging {
             }
             remove_ours(&dir, STAGING_MARKER)?;
         }
-        {
+        let handle = {
             // Registered as it is made: an interrupt from here on removes it.
             let mut live = live_staging();
             // Made here and now (never a folder or link already at its name), and known from
-            // then on by its identity, which the commit checks before it moves it into place.
+            // then on by its handle and identity, which the commit checks before it moves it
+            // into place.
             create_new_dir(&dir, access)?;
-            new_file(&dir.join(STAGING_MARKER), access)?;
+            let handle = open_new_staging(&dir, access)?;
             live.push((dir.clone(), out_dir.clone(), STAGING_MARKER));
-        }
-        let staging_id = folder_id(&dir).map_err(io(&dir))?;
+            handle
+        };
+        let staging_id = handle_id(&handle, &dir).map_err(io(&dir))?;
         clear_interrupted_siblings(&parent, &name);
         Ok(Staging {
             access,
             final_dir: out_dir,
             dir,
             staging_id,
+            handle,
             previous,
             written: Mutex::new(Vec::new()),
             folders: Mutex::new(std::collections::BTreeSet::new()),
@@ -984,6 +991,17 @@ impl Staging {
     /// Reads back a file written into staging (a participant's partial result).
     pub fn read(&self, rel: &str) -> Result<Vec<u8>, StagingError> {
         let path = self.dir.join(rel);
+        #[cfg(unix)]
+        {
+            use std::io::Read;
+            let (folders, name) = split_rel(rel);
+            let mut bytes = Vec::new();
+            open_file_at(&self.handle, &folders, name)
+                .and_then(|mut f| f.read_to_end(&mut bytes))
+                .map_err(io(&path))?;
+            Ok(bytes)
+        }
+        #[cfg(not(unix))]
         fs::read(&path).map_err(io(&path))
     }
 
@@ -1014,23 +1032,47 @@ impl Staging {
         // Held while the file (and its folders) are made: an interrupt that removed the
         // staging folder meanwhile would have it made again, without its marker.
         let _live = live_staging();
-        if let Some(p) = path.parent()
-            && p != self.dir
-        {
-            let mut folders = self
+        #[cfg(unix)]
+        let file = {
+            let (folders, name) = split_rel(rel);
+            let mut known = self
                 .folders
                 .lock()
                 .expect("no panics while holding the lock");
-            if !folders.contains(p) {
-                create_dir(p, access).map_err(|e| self.located(rel, e))?;
-                let mut q = p;
+            let made_before = path
+                .parent()
+                .is_none_or(|p| p == self.dir || known.contains(p));
+            let file = new_file_at(&self.handle, &folders, name, access)
+                .map_err(|e| self.write_failed(rel, e))?;
+            if !made_before {
+                let mut q = path.parent().expect("inside staging");
                 while q != self.dir {
-                    folders.insert(q.to_path_buf());
+                    known.insert(q.to_path_buf());
                     q = q.parent().expect("inside staging");
                 }
             }
-        }
-        let file = new_file(&path, access).map_err(|e| self.located(rel, e))?;
+            file
+        };
+        #[cfg(not(unix))]
+        let file = {
+            if let Some(p) = path.parent()
+                && p != self.dir
+            {
+                let mut folders = self
+                    .folders
+                    .lock()
+                    .expect("no panics while holding the lock");
+                if !folders.contains(p) {
+                    create_dir(p, access).map_err(|e| self.located(rel, e))?;
+                    let mut q = p;
+                    while q != self.dir {
+                        folders.insert(q.to_path_buf());
+                        q = q.parent().expect("inside staging");
+                    }
+                }
+            }
+            new_file(&path, access).map_err(|e| self.located(rel, e))?
+        };
         Ok(StagingFile {
             staging: self,
             rel: rel.to_string(),
@@ -1090,6 +1132,7 @@ impl Staging {
 
     /// A [`StagingError::Io`] from making `rel` (or a folder on its way) in staging, told as
     /// [`Staging::write_failed`] tells a refused write; other errors are passed on.
+    #[cfg(not(unix))]
     fn located(&self, rel: &str, e: StagingError) -> StagingError {
         match e {
             StagingError::Io { source, .. } => self.write_failed(rel, source),
@@ -1495,28 +1538,7 @@ pub fn sync_written<'a>(
     sync_dir(dir)
 }
 
-/// Makes folder `p` (and the missing ones above it) with the mode of `access`, whatever the
-/// umask: a mode given at creation is cut by the umask, so under `umask 077` (a hardened
-/// server's, or a crontab's) `--group-readable` made 0700 folders and 0600 files the reports
-/// group could not read.
-#[cfg(unix)]
-fn create_dir(p: &Path, access: Access) -> Result<(), StagingError> {
-    use std::os::unix::fs::{DirBuilderExt, PermissionsExt};
-    let made: Vec<&Path> = p
-        .ancestors()
-        .take_while(|a| fs::symlink_metadata(a).is_err())
-        .collect();
-    fs::DirBuilder::new()
-        .recursive(true)
-        .mode(access.dir_mode())
-        .create(p)
-        .map_err(io(p))?;
-    for d in made {
-        fs::set_permissions(d, fs::Permissions::from_mode(access.dir_mode())).map_err(io(d))?;
-    }
-    Ok(())
-}
-
+/// Makes folder `p` (and the missing ones above it).
 #[cfg(not(unix))]
 fn create_dir(p: &Path, _access: Access) -> Result<(), StagingError> {
     fs::create_dir_all(p).map_err(io(p))
@@ -1561,21 +1583,140 @@ fn folder_id(p: &Path) -> std::io::Result<FolderId> {
     Ok(())
 }
 
-/// Makes file `p` with the mode of `access`, whatever the umask (see [`create_dir`]).
+/// `rel` (a plain relative path with `/`, checked by the caller) as its folders and its file
+/// name.
 #[cfg(unix)]
-fn new_file(p: &Path, access: Access) -> Result<File, StagingError> {
-    use std::os::unix::fs::{OpenOptionsExt, PermissionsExt};
-    let f = File::options()
-        .write(true)
-        .create_new(true)
-        .mode(access.file_mode())
-        .open(p)
-        .map_err(io(p))?;
-    f.set_permissions(fs::Permissions::from_mode(access.file_mode()))
-        .map_err(io(p))?;
-    Ok(f)
+fn split_rel(rel: &str) -> (Vec<&str>, &str) {
+    let mut parts: Vec<&str> = rel.split('/').collect();
+    let name = parts.pop().expect("split gives at least one part");
+    (parts, name)
 }
 
+/// A staging folder opened once as it was made (unix: a folder handle; elsewhere nothing, and
+/// files are made by path).
+#[cfg(unix)]
+type StagingHandle = std::os::fd::OwnedFd;
+#[cfg(not(unix))]
+type StagingHandle = ();
+
+/// Opens the staging folder `dir` just made, without following a link at its name
+/// (`O_DIRECTORY | O_NOFOLLOW`), and makes its marker file in it.
+#[cfg(unix)]
+fn open_new_staging(dir: &Path, access: Access) -> Result<StagingHandle, StagingError> {
+    use rustix::fs::{Mode, OFlags};
+    let flags = OFlags::RDONLY | OFlags::DIRECTORY | OFlags::NOFOLLOW | OFlags::CLOEXEC;
+    let handle = rustix::fs::open(dir, flags, Mode::empty()).map_err(|e| io(dir)(e.into()))?;
+    new_file_at(&handle, &[], STAGING_MARKER, access).map_err(io(&dir.join(STAGING_MARKER)))?;
+    Ok(handle)
+}
+
+#[cfg(not(unix))]
+fn open_new_staging(dir: &Path, access: Access) -> Result<StagingHandle, StagingError> {
+    new_file(&dir.join(STAGING_MARKER), access).map(|_| ())
+}
+
+/// The identity of the staging folder: of the folder its handle holds (unix), else of the
+/// folder at its name.
+#[cfg(unix)]
+fn handle_id(handle: &StagingHandle, _dir: &Path) -> std::io::Result<FolderId> {
+    let st = rustix::fs::fstat(handle)?;
+    Ok((st.st_dev, st.st_ino))
+}
+
+#[cfg(not(unix))]
+fn handle_id(_handle: &StagingHandle, dir: &Path) -> std::io::Result<FolderId> {
+    folder_id(dir)
+}
+
+/// Opens the folder `folders` (one name per level) inside the folder open as `root`, one level
+/// at a time and never through a link; with `make`, a missing level is made with `make`'s
+/// mode, whatever the umask: a mode given at creation is cut by the umask, so under
+/// `umask 077` (a hardened server's, or a crontab's) `--group-readable` made 0700 folders and
+/// 0600 files the reports group could not read. A link, or anything but a folder, on the way
+/// is an error: nothing is made or read through it. `None` when `folders` is empty (the file
+/// is in `root` itself).
+///
+/// Written here rather than taken from a crate: the standard library's folder and file calls
+/// take paths only, and the crates that offer handle-relative ones (`cap-std`, `openat`) would
+/// be a second way of doing what `rustix` (already used for the removal of folders) does.
+#[cfg(unix)]
+fn open_folders_at(
+    root: &std::os::fd::OwnedFd,
+    folders: &[&str],
+    make: Option<Access>,
+) -> std::io::Result<Option<std::os::fd::OwnedFd>> {
+    use rustix::fs::{Mode, OFlags};
+    use rustix::io::Errno;
+    use std::os::fd::AsFd;
+    let flags = OFlags::RDONLY | OFlags::DIRECTORY | OFlags::NOFOLLOW | OFlags::CLOEXEC;
+    let mut current: Option<std::os::fd::OwnedFd> = None;
+    for name in folders {
+        let at = current.as_ref().map_or(root.as_fd(), |f| f.as_fd());
+        let mut made = false;
+        if let Some(access) = make {
+            match rustix::fs::mkdirat(at, *name, Mode::from_raw_mode(access.dir_mode())) {
+                Ok(()) => made = true,
+                Err(Errno::EXIST) => {}
+                Err(e) => return Err(e.into()),
+            }
+        }
+        let next = rustix::fs::openat(at, *name, flags, Mode::empty()).map_err(|e| match e {
+            Errno::LOOP | Errno::NOTDIR => std::io::Error::other(format!(
+                "{name} is a link or a file, not a folder; nothing is written through it"
+            )),
+            e => e.into(),
+        })?;
+        if let (true, Some(access)) = (made, make) {
+            rustix::fs::fchmod(&next, Mode::from_raw_mode(access.dir_mode()))?;
+        }
+        current = Some(next);
+    }
+    Ok(current)
+}
+
+/// Makes the new file `name` in the folder `folders` inside the folder open as `root` (made as
+/// needed, see [`open_folders_at`]) with the mode of `access`, whatever the umask; fails when
+/// anything, a link included, is at its name already.
+#[cfg(unix)]
+fn new_file_at(
+    root: &std::os::fd::OwnedFd,
+    folders: &[&str],
+    name: &str,
+    access: Access,
+) -> std::io::Result<File> {
+    use rustix::fs::{Mode, OFlags};
+    use std::os::fd::AsFd;
+    let folder = open_folders_at(root, folders, Some(access))?;
+    let at = folder.as_ref().map_or(root.as_fd(), |f| f.as_fd());
+    let flags = OFlags::WRONLY | OFlags::CREATE | OFlags::EXCL | OFlags::NOFOLLOW | OFlags::CLOEXEC;
+    let mode = Mode::from_raw_mode(access.file_mode());
+    let fd = rustix::fs::openat(at, name, flags, mode)?;
+    rustix::fs::fchmod(&fd, mode)?;
+    Ok(File::from(fd))
+}
+
+/// Opens the file `name` in the folder `folders` inside the folder open as `root` for reading,
+/// never through a link.
+#[cfg(unix)]
+fn open_file_at(
+    root: &std::os::fd::OwnedFd,
+    folders: &[&str],
+    name: &str,
+) -> std::io::Result<File> {
+    use rustix::fs::{Mode, OFlags};
+    use std::os::fd::AsFd;
+    let folder = open_folders_at(root, folders, None)?;
+    let at = folder.as_ref().map_or(root.as_fd(), |f| f.as_fd());
+    let fd = rustix::fs::openat(
+        at,
+        name,
+        OFlags::RDONLY | OFlags::NOFOLLOW | OFlags::CLOEXEC,
+        Mode::empty(),
+    )?;
+    Ok(File::from(fd))
+}
+
+/// Makes the new file `p`.
 #[cfg(not(unix))]
 fn new_file(p: &Path, _access: Access) -> Result<File, StagingError> {
     File::options()
@@ -2038,6 +2179,79 @@ mod tests {
         assert!(err.contains("symbolic link"), "{err}");
         assert_eq!(tree(&docs), ["note0.txt", "note1.txt", "note2.txt"]);
         assert!(fs::symlink_metadata(&dir).unwrap().file_type().is_symlink());
+    }
+
+    /// Files were made in staging by path: with `.out.staging` swapped for a link while the run
+    /// went on (attack24), every later file at the staging folder's top level (the manifest,
+    /// the tidy tables) was made in the folder the link led to, and a report's folder made
+    /// anew there. They are now made through the handle the run opened as it made its staging
+    /// folder: they land in the run's own folder wherever it was moved, and the link's folder
+    /// gets nothing. A link planted inside staging in place of one of its folders is not
+    /// followed either; that write fails, naming the file.
+    #[cfg(unix)]
+    #[test]
+    fn files_are_made_in_the_runs_own_staging_folder_never_through_a_link() {
+        let tmp = tempfile::tempdir().unwrap();
+        let (target, _out) = target_in(tmp.path());
+        let docs = tmp.path().join("docs");
+        fs::create_dir(&docs).unwrap();
+        fs::write(docs.join("note.txt"), "kept").unwrap();
+        let staging = Staging::begin(&target, Access::Owner).unwrap();
+        staging.write("participants/a.html", b"a").unwrap();
+        let dir = tmp.path().join(".out.staging");
+        let moved = tmp.path().join("moved");
+        fs::rename(&dir, &moved).unwrap();
+        std::os::unix::fs::symlink("docs", &dir).unwrap();
+        staging.write("manifest.json", b"{}").unwrap();
+        staging.write("participants/b.html", b"b").unwrap();
+        staging.write("metrics/tables.csv", b"t").unwrap();
+        assert_eq!(staging.read("participants/b.html").unwrap(), b"b");
+        assert_eq!(tree(&docs), ["note.txt"]);
+        assert_eq!(
+            tree(&moved),
+            [
+                ".cohortpress-staging",
+                "manifest.json",
+                "metrics",
+                "metrics/tables.csv",
+                "participants",
+                "participants/a.html",
+                "participants/b.html",
+            ]
+        );
+        // A folder inside staging swapped for a link.
+        fs::rename(moved.join("metrics"), tmp.path().join("metrics-moved")).unwrap();
+        std::os::unix::fs::symlink(&docs, moved.join("metrics")).unwrap();
+        let err = staging
+            .write("metrics/more.csv", b"m")
+            .unwrap_err()
+            .to_string();
+        assert!(err.contains("not a folder"), "{err}");
+        assert!(err.contains("metrics/more.csv"), "{err}");
+        let err = staging.read("metrics/tables.csv").unwrap_err().to_string();
+        assert!(err.contains("not a folder"), "{err}");
+        assert_eq!(tree(&docs), ["note.txt"]);
+        let err = staging.commit().unwrap_err().to_string();
+        assert!(err.contains("staging folder was replaced"), "{err}");
+    }
+
+    /// A folder listing quoted in a refusal quoted each path whole: an output holding a chain
+    /// of nested folders (attack24: 20,000 levels) printed a message of tens of thousands of
+    /// characters. A quoted path now keeps its first and last 60 characters.
+    #[test]
+    fn a_refusal_quotes_a_long_path_by_its_two_ends() {
+        let tmp = tempfile::tempdir().unwrap();
+        let mut deep = tmp.path().to_path_buf();
+        for _ in 0..300 {
+            deep.push("abcd");
+        }
+        fs::create_dir_all(&deep).unwrap();
+        fs::write(deep.join("last.txt"), "x").unwrap();
+        let why = unlisted_files(tmp.path(), MANIFEST, &Default::default()).unwrap();
+        assert!(why.len() < 600, "{} characters: {why}", why.len());
+        assert!(why.contains("`abcd/abcd/"), "{why}");
+        assert!(why.contains("more characters) …"), "{why}");
+        assert!(why.contains("/abcd/last.txt`"), "{why}");
     }
 
     /// Folders made read-only after the fact (a backup tool, `chmod -R a-w`), down to mode

@@ -321,6 +321,10 @@ fn io_err(path: &Path, e: impl std::fmt::Display) -> std::io::Error {
 #[derive(Debug)]
 pub struct Ledger {
     dir: PathBuf,
+    /// The ledger's folder, opened once (after the lock was taken): its files are written
+    /// and renamed relative to it, so a folder swapped for a link while a run goes on never
+    /// has a `ledger.json` replaced where the link leads.
+    folder: LedgerFolder,
     secret: [u8; 32],
     releases: Vec<ReleaseRecord>,
     new: bool,
@@ -553,6 +557,7 @@ impl Ledger {
             }
             Err(std::fs::TryLockError::Error(e)) => return Err(io_err(&lock_path, e)),
         }
+        let folder = LedgerFolder::open(dir)?;
         let ledger_path = dir.join(LEDGER_FILE);
         let mut new = false;
         // Read like an input (no link followed, regular files only): a FIFO
@@ -590,7 +595,7 @@ impl Ledger {
             }
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
                 let key = fresh_key();
-                write_atomic(&key_path, &key)?;
+                write_atomic(&folder, KEY_FILE, &key_path, &key)?;
                 key
             }
             Err(e) => return Err(io_err(&key_path, e)),
@@ -612,6 +617,7 @@ impl Ledger {
         }
         Ok(Ledger {
             dir: dir.to_path_buf(),
+            folder,
             secret,
             releases,
             new,
@@ -826,7 +832,12 @@ impl Ledger {
         };
         let bytes = serde_json::to_vec(&f).map_err(|e| io_err(&self.dir, e))?;
         self.releases = f.releases;
-        write_atomic(&self.dir.join(LEDGER_FILE), &bytes)
+        write_atomic(
+            &self.folder,
+            LEDGER_FILE,
+            &self.dir.join(LEDGER_FILE),
+            &bytes,
+        )
     }
 }
 
@@ -873,8 +884,9 @@ fn fresh_key() -> [u8; 32] {
     key
 }
 
-/// Writes `bytes` to `path` through a new temporary file beside it (owner-only from its
-/// creation, so the key is never readable by others even for a moment). A leftover temporary
+/// Writes `bytes` to the file `name` of the ledger's `folder` (`path`, as the user knows it,
+/// names it in errors) through a new temporary file beside it, in that folder's handle
+/// ([`LedgerFolder`]) (owner-only from its creation, so the key is never readable by others even for a moment). A leftover temporary
 /// file — or a link planted under its name — is removed first, never written through: the
 /// file is created with `O_EXCL`, so no link is followed and nothing outside the folder is
 /// overwritten.
@@ -882,31 +894,24 @@ fn fresh_key() -> [u8; 32] {
 /// An error names the file being saved (`ledger.json`, the name the user knows) and says it
 /// was not changed: the temporary file's name alone read as if that were the ledger. A write
 /// that fails removes the temporary file.
-fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
-    let tmp = path.with_extension("tmp");
-    let through = tmp.file_name().map_or_else(
-        || "a temporary file".to_string(),
-        |n| n.to_string_lossy().into_owned(),
-    );
+fn write_atomic(
+    folder: &LedgerFolder,
+    name: &str,
+    path: &Path,
+    bytes: &[u8],
+) -> std::io::Result<()> {
+    let through = Path::new(name)
+        .with_extension("tmp")
+        .to_string_lossy()
+        .into_owned();
     let err = |e: std::io::Error| {
         io_err(
             path,
             format!("{e} (written through {through} beside it; the file was not changed)"),
         )
     };
-    match std::fs::remove_file(&tmp) {
-        Ok(()) => {}
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
-        Err(e) => return Err(err(e)),
-    }
-    let mut options = std::fs::File::options();
-    options.write(true).create_new(true);
-    #[cfg(unix)]
-    {
-        use std::os::unix::fs::OpenOptionsExt;
-        options.mode(0o600);
-    }
-    let mut f = options.open(&tmp).map_err(err)?;
+    folder.remove(&through).map_err(err)?;
+    let mut f = folder.create_owner_only(&through).map_err(err)?;
     // Once it is made, a write that fails (a full disk, a file-size limit) removes it: it was
     // left behind, empty or cut short, beside the ledger it had not replaced.
     let written = f
@@ -914,11 +919,139 @@ fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
         .and_then(|()| f.sync_all())
         .and_then(|()| {
             drop(f);
-            std::fs::rename(&tmp, path)
+            folder.rename(&through, name)
         });
     if let Err(e) = written {
-        let _ = std::fs::remove_file(&tmp);
+        let _ = folder.remove(&through);
         return Err(err(e));
     }
     Ok(())
+}
+
+/// The ledger's folder as its files are written: on unix a handle opened once (links at its
+/// name followed then, as the user named it, never again), elsewhere its path.
+#[derive(Debug)]
+struct LedgerFolder {
+    #[cfg(unix)]
+    fd: std::os::fd::OwnedFd,
+    #[cfg(not(unix))]
+    dir: PathBuf,
+}
+
+impl LedgerFolder {
+    fn open(dir: &Path) -> std::io::Result<LedgerFolder> {
+        #[cfg(unix)]
+        {
+            use rustix::fs::{Mode, OFlags};
+            let flags = OFlags::RDONLY | OFlags::DIRECTORY | OFlags::CLOEXEC;
+            let fd = rustix::fs::open(dir, flags, Mode::empty()).map_err(|e| io_err(dir, e))?;
+            Ok(LedgerFolder { fd })
+        }
+        #[cfg(not(unix))]
+        Ok(LedgerFolder {
+            dir: dir.to_path_buf(),
+        })
+    }
+
+    /// Removes the file `name` (a link is removed, never followed); one that is not there is
+    /// no error.
+    fn remove(&self, name: &str) -> std::io::Result<()> {
+        #[cfg(unix)]
+        let removed: std::io::Result<()> =
+            rustix::fs::unlinkat(&self.fd, name, rustix::fs::AtFlags::empty()).map_err(Into::into);
+        #[cfg(not(unix))]
+        let removed = std::fs::remove_file(self.dir.join(name));
+        match removed {
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+            other => other,
+        }
+    }
+
+    /// Makes the new file `name`, owner-only from its creation; fails when anything, a link
+    /// included, is at its name.
+    fn create_owner_only(&self, name: &str) -> std::io::Result<std::fs::File> {
+        #[cfg(unix)]
+        {
+            use rustix::fs::{Mode, OFlags};
+            let flags =
+                OFlags::WRONLY | OFlags::CREATE | OFlags::EXCL | OFlags::NOFOLLOW | OFlags::CLOEXEC;
+            let fd = rustix::fs::openat(&self.fd, name, flags, Mode::from_raw_mode(0o600))?;
+            Ok(std::fs::File::from(fd))
+        }
+        #[cfg(not(unix))]
+        std::fs::File::options()
+            .write(true)
+            .create_new(true)
+            .open(self.dir.join(name))
+    }
+
+    /// Renames `from` to `to`, both in the folder.
+    fn rename(&self, from: &str, to: &str) -> std::io::Result<()> {
+        #[cfg(unix)]
+        {
+            rustix::fs::renameat(&self.fd, from, &self.fd, to)?;
+            Ok(())
+        }
+        #[cfg(not(unix))]
+        std::fs::rename(self.dir.join(from), self.dir.join(to))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn line() -> ReleaseLine {
+        ReleaseLine {
+            period: "2026-09-01 to 2026-09-30".into(),
+            started: "40".into(),
+            with_outcome: "38 (95 %)".into(),
+            retained: None,
+            mean_change: "-2.1 %".into(),
+            reached_5: "9 (23 %)".into(),
+        }
+    }
+
+    /// The ledger's files were saved by path (`ledger.tmp` renamed to `ledger.json`): a ledger
+    /// folder swapped for a link while a run went on (attack24) would have had its release
+    /// saved where the link leads, replacing the `ledger.json` found there, another program's
+    /// say. Saves now go through the handle the run opened with the lock: the run's own folder
+    /// gets the release wherever it was moved, and the folder the link leads to keeps its
+    /// files as they were.
+    #[cfg(unix)]
+    #[test]
+    fn a_ledger_folder_swapped_for_a_link_mid_run_never_has_a_file_replaced_where_it_leads() {
+        let tmp = tempfile::tempdir().unwrap();
+        let dir = tmp.path().join("state");
+        let mut ledger = Ledger::open(&dir).unwrap();
+        let other = tmp.path().join("other");
+        std::fs::create_dir(&other).unwrap();
+        std::fs::write(other.join(LEDGER_FILE), "another program's").unwrap();
+        let moved = tmp.path().join("moved");
+        std::fs::rename(&dir, &moved).unwrap();
+        std::os::unix::fs::symlink(&other, &dir).unwrap();
+        let release = release_record(
+            "p",
+            "2026-09-01",
+            "2026-09-30",
+            "2026-10-01",
+            line(),
+            Published::default(),
+            String::new(),
+        );
+        ledger.record(release).unwrap();
+        assert_eq!(
+            std::fs::read_to_string(other.join(LEDGER_FILE)).unwrap(),
+            "another program's"
+        );
+        let mut names: Vec<String> = std::fs::read_dir(&other)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        names.sort();
+        assert_eq!(names, [LEDGER_FILE]);
+        let saved = parse_ledger(&moved, &std::fs::read(moved.join(LEDGER_FILE)).unwrap()).unwrap();
+        assert_eq!(saved.releases.len(), 1);
+        assert_eq!(saved.releases[0].period_to, "2026-09-30");
+    }
 }

@@ -228,7 +228,68 @@ fn a_windows_1252_profile_is_read_with_a_warning() {
         "{}",
         lp.diagnostics[0]
     );
+    assert!(
+        lp.diagnostics[0]
+            .hint
+            .as_deref()
+            .is_some_and(|h| h.contains("input.encoding: windows-1252")),
+        "{}",
+        lp.diagnostics[0]
+    );
     assert_eq!(lp.data.unwrap().profile.name.as_deref(), Some("Zoë Müller"));
+}
+
+/// A program whose exports are always Windows-1252 (a French spreadsheet's "CSV") got the
+/// warning for every such file in every monthly run, so every scheduled run ended with exit
+/// code 1 (tryout23). `input.encoding: windows-1252` says they are expected: the same file is
+/// read the same way, with a note and no warning; a UTF-8 file is still read as UTF-8.
+#[test]
+fn a_windows_1252_file_the_program_declares_is_read_with_a_note() {
+    let tmp = tempfile::tempdir().unwrap();
+    fs::write(
+        tmp.path().join("program.yaml"),
+        format!("{PROGRAM}input:\n  encoding: windows-1252\n"),
+    )
+    .unwrap();
+    let p = crate::program::load_program(tmp.path()).unwrap();
+    assert_eq!(
+        p.def.input.encoding,
+        crate::program::InputEncoding::Windows1252
+    );
+    let mut bytes = format!("{PROFILE}name: Zo").into_bytes();
+    bytes.extend_from_slice(b"\xEB M\xFCller\n");
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[
+            ("profile.yaml", &bytes),
+            (
+                "weights.csv",
+                "date,weight,unit\n2026-04-02,80,kg\n".as_bytes(),
+            ),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(lp.diagnostics.is_empty(), "{:#?}", lp.diagnostics);
+    let notes: Vec<&str> = lp.notes.iter().map(|n| n.message.as_str()).collect();
+    assert!(
+        notes.contains(&"read as Windows-1252 (input.encoding), which gives `ë`, `ü`"),
+        "{notes:#?}"
+    );
+    assert_eq!(lp.data.unwrap().profile.name.as_deref(), Some("Zoë Müller"));
+    // An unknown encoding is refused at its line.
+    fs::write(
+        tmp.path().join("program.yaml"),
+        format!("{PROGRAM}input:\n  encoding: koi8-r\n"),
+    )
+    .unwrap();
+    let errs = crate::program::load_program(tmp.path()).expect_err("refused");
+    let err = errs[0].to_string();
+    assert!(
+        err.contains("koi8-r") && err.contains("windows-1252"),
+        "{err}"
+    );
+    assert_eq!(errs[0].line, Some(5), "{err}");
 }
 
 #[test]

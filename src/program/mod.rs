@@ -275,6 +275,25 @@ pub struct InputDef {
     /// `{ weights: { "Body Weight": weight } }`.
     #[serde(default)]
     pub columns: BTreeMap<String, BTreeMap<String, String>>,
+    /// The encoding of participants' files that are not UTF-8 or UTF-16: left out, such a
+    /// file is read as Windows-1252 when that is unambiguous, with a warning; `windows-1252`
+    /// says the program's exports are so, and they are read with a note instead.
+    #[serde(default)]
+    pub encoding: InputEncoding,
+}
+
+/// `input.encoding`: what a participant's file that is not UTF-8 or UTF-16 is expected to be.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+pub enum InputEncoding {
+    /// UTF-8 (or UTF-16) expected: any other file is a surprise, read as Windows-1252 only
+    /// when unambiguous, with a warning.
+    #[default]
+    #[serde(rename = "utf-8")]
+    Utf8,
+    /// The program's exports are Windows-1252 (Western European spreadsheets' "CSV"): such a
+    /// file is read with a note, no warning. UTF-8 and UTF-16 files are still read as such.
+    #[serde(rename = "windows-1252")]
+    Windows1252,
 }
 
 fn default_date_format() -> String {
@@ -288,6 +307,7 @@ impl Default for InputDef {
             delimiter: None,
             time_zone: None,
             columns: BTreeMap::new(),
+            encoding: InputEncoding::default(),
         }
     }
 }

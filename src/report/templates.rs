@@ -185,7 +185,11 @@ impl TemplateSet {
         // split across partials), and input text printed inside CSS is CSS. So the page an
         // override made is checked again as a browser parses it.
         if self.overridden
-            && let Some((what, needle)) = output_breach(&html)
+            && let Some(Breach {
+                what,
+                needle,
+                built,
+            }) = output_breach(&html)
         {
             // Where it was written, when the page's text around it tells: the template's
             // literal text before the problem and the problem's first, literal, piece.
@@ -193,10 +197,17 @@ impl TemplateSet {
                 .and_then(|at| locate_in_sources(&html, at, &self.override_texts))
                 .map(|(path, line, column)| format!("; it starts at {path}:{line}:{column}"))
                 .unwrap_or_default();
+            // Said only of a problem the check of the files' text would have refused had it been
+            // written there as it is: a page nested too deep is no such thing.
+            let built = if built {
+                " (where the file's text does not show it, a handlebars expression built it: a \
+                 comment, literal or partial inside a tag, an attribute or CSS, or input text \
+                 printed into CSS)"
+            } else {
+                ""
+            };
             return Err(RenderError::Template(format!(
-                "the page made from {} {what}{at} (where the file's text does not show it, a \
-                 handlebars expression built it: a comment, literal or partial inside a tag, an \
-                 attribute or CSS, or input text printed into CSS)",
+                "the page made from {} {what}{at}{built}",
                 self.source_of(name)
             )));
         }
@@ -575,7 +586,29 @@ fn css_url(css: &[u8], offset: usize) -> Option<(usize, String)> {
 /// to the template files, on the result. A problem is described for the message
 /// ("holds `<script>`…").
 pub fn output_problem(html: &str) -> Option<String> {
-    output_breach(html).map(|(what, _)| what)
+    output_breach(html).map(|b| b.what)
+}
+
+/// A problem [`output_breach`] found in a page an override made.
+struct Breach {
+    /// What is wrong, for the message.
+    what: String,
+    /// Where it starts in the page's text.
+    needle: Needle,
+    /// Whether the check of the template files' text would have refused it had it been
+    /// written there as it is (so a handlebars expression built it); not so of a page nested
+    /// too deep, which is a matter of size.
+    built: bool,
+}
+
+impl Breach {
+    fn built(what: String, needle: Needle) -> Breach {
+        Breach {
+            what,
+            needle,
+            built: true,
+        }
+    }
 }
 
 /// Where a problem [`output_breach`] found is written in the page's text: the piece of text
@@ -596,7 +629,7 @@ enum Needle {
 pub const MAX_ELEMENT_DEPTH: usize = 256;
 
 /// [`output_problem`], with the piece of the page's text that starts the problem.
-fn output_breach(html: &str) -> Option<(String, Needle)> {
+fn output_breach(html: &str) -> Option<Breach> {
     let page = scraper::Html::parse_document(html);
     // Counted without recursion, before anything walks the page.
     let mut depth = 0usize;
@@ -606,14 +639,15 @@ fn output_breach(html: &str) -> Option<(String, Needle)> {
                 depth += 1;
                 if depth > MAX_ELEMENT_DEPTH {
                     let name = n.value().as_element().map_or("", |e| e.name());
-                    return Some((
-                        format!(
+                    return Some(Breach {
+                        what: format!(
                             "nests elements more than {MAX_ELEMENT_DEPTH} deep (`<{name}>` at \
                              that depth), more than a report page may: its text is read for the \
                              PDF one level at a time; flatten the template"
                         ),
-                        Needle::Element(name.to_ascii_lowercase()),
-                    ));
+                        needle: Needle::Element(name.to_ascii_lowercase()),
+                        built: false,
+                    });
                 }
             }
             ego_tree::iter::Edge::Close(n) if n.value().is_element() => depth -= 1,
@@ -626,7 +660,7 @@ fn output_breach(html: &str) -> Option<(String, Needle)> {
         };
         let element = e.name().to_ascii_lowercase();
         if ACTIVE_ELEMENTS.contains(&element.as_str()) {
-            return Some((
+            return Some(Breach::built(
                 format!(
                     "holds `<{element}>`, which is not allowed in a report: a report runs no code \
                      and embeds or submits to no other page"
@@ -643,7 +677,7 @@ fn output_breach(html: &str) -> Option<(String, Needle)> {
                 })
                 .collect();
             if let Some(what) = css_outside(&css) {
-                return Some((
+                return Some(Breach::built(
                     format!("holds a `<style>` element with {what}"),
                     Needle::Element(element),
                 ));
@@ -652,7 +686,7 @@ fn output_breach(html: &str) -> Option<(String, Needle)> {
         for (attr, value) in e.attrs() {
             let attr = attr.to_ascii_lowercase();
             if attr.starts_with("on") || attr == "http-equiv" || attr == "srcdoc" {
-                return Some((
+                return Some(Breach::built(
                     format!(
                         "holds the attribute `{attr}` (on `<{element}>`), which is not allowed in a \
                          report: a report runs no code and never reloads or redirects itself"
@@ -667,7 +701,7 @@ fn output_breach(html: &str) -> Option<(String, Needle)> {
                 && !address.starts_with('#')
             {
                 let start: String = address.chars().take(12).collect();
-                return Some((
+                return Some(Breach::built(
                     format!(
                         "holds `{attr}=\"{}\"` (on `<{element}>`), an address outside the report; \
                          a report is self-contained: only links within the page (`#…`) are allowed",
@@ -678,7 +712,7 @@ fn output_breach(html: &str) -> Option<(String, Needle)> {
             }
             // `style`, and SVG's presentation attributes (`fill="url(…)"`, `filter`, `mask`).
             if let Some(what) = css_outside(value) {
-                return Some((
+                return Some(Breach::built(
                     format!("holds the attribute `{attr}` (on `<{element}>`) with {what}"),
                     Needle::Attribute(attr, None),
                 ));
