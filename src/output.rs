@@ -924,6 +924,12 @@ impl Staging {
             }
             if fs::symlink_metadata(&out_dir).is_err() {
                 fs::rename(&previous, &out_dir).map_err(io(&out_dir))?;
+                tracing::warn!(
+                    "a run into {} was stopped (killed, or a power cut) as it put its output \
+                     in place; the output before it was put back from {}",
+                    out_dir.display(),
+                    previous.display()
+                );
             } else {
                 remove_ours(&previous, MANIFEST)?;
             }
@@ -944,6 +950,15 @@ impl Staging {
                 )));
             }
             remove_ours(&dir, STAGING_MARKER)?;
+            // Said, so that a log whose last run has a start line and no end (SIGKILL, a power
+            // cut) is explained by the next one (tryout24: the removal was silent).
+            tracing::warn!(
+                "a run into {} did not finish (killed, or a power cut): its unfinished output \
+                 {} was removed, and {} was left as that run found it",
+                out_dir.display(),
+                dir.display(),
+                out_dir.display()
+            );
         }
         let handle = {
             // Registered as it is made: an interrupt from here on removes it.

@@ -5,8 +5,9 @@ use crate::diag::Diagnostic;
 use crate::group::{GroupReport, ParticipantSummary};
 use crate::modules::ModuleResults;
 use chrono::NaiveDate;
-use cohortpress_metric_api::view::ModuleView;
+use cohortpress_metric_api::view::{Code, ModuleView};
 use cohortpress_metric_api::{Flag, ParticipantData, Period, Scalar, TextValue};
+use cohortpress_metric_energy::view::{EnergyView, OptionKind, names::OPTIONS};
 use cohortpress_metric_outcomes::view::{OutcomesView, names::MILESTONES};
 use rayon::prelude::*;
 use serde::Serialize;
@@ -83,15 +84,38 @@ const ROW_COLUMNS: [RowColumn; 6] = [
     ("activity_rows_used", |t| t.activity_rows_used),
 ];
 
+/// Which of the `energy` module's `options` rows the participant's report offered under "What
+/// to try next" (its options to restart a steady loss at the module's target rate). The module
+/// calls a row `feasible` by its own limits; the report offers fewer: no walk under
+/// `guidance.min_walk_minutes`, no intake change under `guidance.min_intake_change_kcal` or
+/// one that would take the person's own logged intake below the floor, and none at all in a
+/// phase other than restarting a loss. `tables.csv` gives each row the report's verdict as
+/// the column [`OFFERED_IN_REPORT`].
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct ReportOffers {
+    /// Eating less alone (the `intake` row).
+    pub intake: bool,
+    /// Walking more alone (the `walking` row).
+    pub walking: bool,
+    /// A change of both ("some of each"; the `combined` row, when the module gives one).
+    pub both: bool,
+}
+
+/// The column `metrics/tables.csv` adds to each row of the `energy` module's `options` table:
+/// `yes` when the participant's report offered that option, else `no` ([`ReportOffers`]).
+pub const OFFERED_IN_REPORT: &str = "offered_in_report";
+
 /// Collects a participant's tidy metrics from the module results and their row for the group
 /// step (`summary`: who the group report counts as started and as a completer), for a period
-/// ending on `period_to`; `rows` are the rows in and used of their files.
+/// ending on `period_to`; `rows` are the rows in and used of their files, `offers` what their
+/// report offered of the `energy` module's options.
 pub fn participant(
     data: &ParticipantData,
     results: &ModuleResults,
     summary: &ParticipantSummary,
     period_to: NaiveDate,
     rows: &crate::participant::FileRows,
+    offers: ReportOffers,
 ) -> TidyParticipant {
     // As the group step counts them: started needs a positive, finite baseline weight.
     let started = summary.started
@@ -155,6 +179,7 @@ pub fn participant(
         }
         for table in &out.tables {
             let milestones = module == OutcomesView::MODULE && table.name == MILESTONES;
+            let options = module == EnergyView::MODULE && table.name == OPTIONS;
             for (i, row) in table.rows.iter().enumerate() {
                 let seen = if milestones {
                     follow_up_milestone(data, period_to, &table.columns, row)
@@ -181,6 +206,32 @@ pub fn participant(
                         col.name.clone(),
                         col.unit.clone(),
                         value,
+                    ]);
+                }
+                if options {
+                    let kind = table
+                        .columns
+                        .iter()
+                        .zip(row)
+                        .find(|(c, _)| c.name == "kind")
+                        .and_then(|(_, cell)| match cell {
+                            cohortpress_metric_api::Cell::Text(s) => OptionKind::from_code(s).ok(),
+                            _ => None,
+                        });
+                    let offered = match kind {
+                        Some(OptionKind::Intake) => offers.intake,
+                        Some(OptionKind::Walking) => offers.walking,
+                        Some(OptionKind::Combined) => offers.both,
+                        None => false,
+                    };
+                    t.table_rows.push([
+                        data.profile.id.clone(),
+                        module.clone(),
+                        table.name.clone(),
+                        (i + 1).to_string(),
+                        OFFERED_IN_REPORT.to_string(),
+                        String::new(),
+                        if offered { "yes" } else { "no" }.to_string(),
                     ]);
                 }
             }
@@ -866,7 +917,20 @@ pub fn datapackage(
                 DpField::required("module", "string", "module id"),
                 DpField::required("table", "string", &tables_declared),
                 positive("row", "row of the participant's table, from 1", true),
-                DpField::required("column", "string", "column name"),
+                DpField::required(
+                    "column",
+                    "string",
+                    "column name; each row of energy.options also has the column \
+                     offered_in_report (not the module's own): yes when the participant's report \
+                     offered that option under \"What to try next\" (intake: eating less alone; \
+                     walking: walking more alone; combined: a change of both, which the report \
+                     sizes its own way, so its amounts are not the row's), else no. feasible is \
+                     the module's verdict by its own limits; the report offers fewer: none in a \
+                     report that does not suggest restarting a loss, no intake change under \
+                     guidance.min_intake_change_kcal or taking the logged intake below the floor, \
+                     no walk under guidance.min_walk_minutes, amounts rounded to 50 kcal and 5 \
+                     minutes",
+                ),
                 DpField::new(
                     "unit",
                     "string",

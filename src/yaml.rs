@@ -267,6 +267,63 @@ fn token_at(text: &str, line: usize, col: usize) -> Option<String> {
     (!t.is_empty()).then_some(t)
 }
 
+/// A quoted value whose quote is never closed on its line (`name: "Ann Smith`, a typo or a
+/// value cut short by an editor or a sync): the parser's words were "invalid indentation in
+/// quoted scalar" (the next line is read as part of the value) or "while scanning a quoted
+/// scalar, found unexpected end of stream", with the hint to check indentation, which does not
+/// fit (tryout24: a participant left out of a monthly run for it). `None` for other errors, or
+/// when no quote opens a value at `line`, `col` (1-based line, 0-based column) or the line
+/// holds its closing quote.
+fn unclosed_quote(
+    text: &str,
+    file: &str,
+    info: &str,
+    line: usize,
+    col: usize,
+) -> Option<Diagnostic> {
+    if !(info.contains("invalid indentation in quoted scalar")
+        || info.contains("found unexpected end of stream"))
+    {
+        return None;
+    }
+    let l = text.lines().nth(line.checked_sub(1)?)?;
+    let rest: String = l.chars().skip(col).collect();
+    let quote = rest.chars().next().filter(|c| matches!(c, '"' | '\''))?;
+    let value = &rest[quote.len_utf8()..];
+    // A closing quote on the line (not doubled in single quotes, not escaped in double ones)
+    // means the problem is elsewhere.
+    let closed = match quote {
+        '"' => {
+            let mut escaped = false;
+            value.chars().any(|c| {
+                let end = c == '"' && !escaped;
+                escaped = c == '\\' && !escaped;
+                end
+            })
+        }
+        _ => value.replace("\'\'", "").contains('\''),
+    };
+    if closed {
+        return None;
+    }
+    let shown: String = rest.trim_end().chars().take(80).collect();
+    Some(
+        Diagnostic::error(
+            file,
+            format!("a value opened with a quote ({quote}) is not closed on its line"),
+        )
+        .at(line as u64, Some(col as u64 + 1))
+        .expected(format!(
+            "the closing {quote} at the end of the value, on the same line"
+        ))
+        .found(format!("`{shown}`"))
+        .hint(format!(
+            "add the closing {quote} after the value (`{shown}{quote}`), or remove the opening \
+             one; YAML reads the lines below as part of a quoted value until its quote closes"
+        )),
+    )
+}
+
 /// Walks the event stream of `text` once, refusing it (with the line and column where a limit
 /// was passed) when it has more than [`MAX_YAML_EVENTS`] events, more than [`MAX_YAML_ALIASES`]
 /// aliases, lists or mappings nested deeper than [`MAX_YAML_DEPTH`], or more than
@@ -337,6 +394,9 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
                     ))
                     .found(format!("`{name}`"))
                     .hint("a value starting with `*` is a YAML alias; quote it if it is text (\"*…\")"));
+                }
+                if let Some(d) = unclosed_quote(text, file, e.info(), m.line(), m.col()) {
+                    return Err(d);
                 }
                 return Err(Diagnostic::error(file, format!("not valid YAML: {}", e.info()))
                     .at(m.line() as u64, Some(m.col() as u64 + 1))
@@ -938,6 +998,36 @@ mod tests {
             assert_eq!(d.hint.as_deref(), Some(hint), "{written}: {d}");
             assert_eq!((d.line, d.column), (Some(1), Some(8)), "{d}");
         }
+    }
+
+    /// A profile whose name lost its closing quote (`name: "Ann Smith`) was refused "not valid
+    /// YAML: invalid indentation in quoted scalar" with the hint to check indentation; at the
+    /// end of the file, "while scanning a quoted scalar, found unexpected end of stream". Both
+    /// now say the quote is not closed and how to close it; a quote closed on its line keeps
+    /// the parser's words.
+    #[test]
+    fn a_quote_not_closed_on_its_line_is_named_with_how_to_close_it() {
+        let err = |text: &str| value_from_str(text, "profile.yaml").unwrap_err();
+        let d = err("id: SG-006\nname: \"Ann Smith\nsex: female\n");
+        assert_eq!(
+            d.message,
+            "a value opened with a quote (\") is not closed on its line"
+        );
+        assert_eq!((d.line, d.column), (Some(2), Some(7)), "{d}");
+        assert_eq!(d.found.as_deref(), Some("`\"Ann Smith`"));
+        assert_eq!(
+            d.hint.as_deref(),
+            Some(
+                "add the closing \" after the value (`\"Ann Smith\"`), or remove the opening one; \
+                 YAML reads the lines below as part of a quoted value until its quote closes"
+            )
+        );
+        let d = err("id: SG-006\nsex: female\nname: 'Ann Smith\n");
+        assert_eq!((d.line, d.column), (Some(3), Some(7)), "{d}");
+        assert!(d.message.contains("quote (') is not closed"), "{d}");
+        // Closed on its line: another problem, the parser's words.
+        let d = err("name: \"Ann \"the\" Smith\"\n");
+        assert!(d.message.starts_with("not valid YAML"), "{d}");
     }
 
     #[test]

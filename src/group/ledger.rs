@@ -762,6 +762,52 @@ impl Ledger {
         by_period.into_values().collect()
     }
 
+    /// The calendar months between `program`'s latest release of a whole calendar month
+    /// before `from` and the month starting on `from` that have no release of their own, as
+    /// their first days, oldest first; empty when `from` is not the first day of a month or
+    /// no release of an earlier month is recorded. A cron line that did not run one month (the
+    /// machine off on the 2nd, a month skipped by a wrong clock) left that month without
+    /// participant reports or a group report, and no later run said so (a 12-month tryout
+    /// lost November: the December run went from October's release to its own in silence).
+    pub fn months_missed_before(
+        &self,
+        program: &str,
+        from: chrono::NaiveDate,
+    ) -> Vec<chrono::NaiveDate> {
+        use chrono::{Datelike, Months, NaiveDate};
+        if from.day() != 1 {
+            return Vec::new();
+        }
+        // A release's month, when its period is one whole calendar month.
+        let month_of = |r: &ReleaseRecord| -> Option<NaiveDate> {
+            let f: NaiveDate = r.period_from.parse().ok()?;
+            let t: NaiveDate = r.period_to.parse().ok()?;
+            let next = f.checked_add_months(Months::new(1))?;
+            (f.day() == 1 && t.succ_opt() == Some(next)).then_some(f)
+        };
+        let months: std::collections::BTreeSet<NaiveDate> = self
+            .releases
+            .iter()
+            .filter(|r| r.program == program)
+            .filter_map(month_of)
+            .collect();
+        let Some(&latest) = months.range(..from).next_back() else {
+            return Vec::new();
+        };
+        let mut missed = Vec::new();
+        let mut m = latest;
+        while let Some(next) = m.checked_add_months(Months::new(1)) {
+            if next >= from {
+                break;
+            }
+            if !months.contains(&next) {
+                missed.push(next);
+            }
+            m = next;
+        }
+        missed
+    }
+
     /// A keyed hash (blake3, under the ledger's key) of a participant's id and the day they
     /// withdrew consent: what a release records of the withdrawals its run knew, naming no one.
     pub fn withdrawal_key(&self, id: &str, withdrew: &str) -> String {

@@ -5306,6 +5306,36 @@ mod tests {
         ctx.take_notes();
     }
 
+    /// Accents are folded in header names, so an accented header matches its alias written
+    /// without them: a French food app's `Énergie (kcal)` was refused for a missing `kcal`,
+    /// since `header_key` kept the accent (`énergie`) and the alias is `energie`; written as
+    /// `E` and a combining accent, it split into `e_nergie`.
+    #[test]
+    fn accented_headers_match_their_aliases() {
+        assert_eq!(
+            header_key("Énergie (kcal)"),
+            ("energie".into(), Some("kcal".into()))
+        );
+        assert_eq!(header_key("E\u{301}nergie").0, "energie");
+        assert_eq!(header_key("Größe").0, "große");
+        let opts = CsvOptions::default();
+        let ctx = FileCtx::new("P1", "intake.csv");
+        for header in ["Date;Énergie (kcal)", "Date;E\u{301}nergie (kcal)"] {
+            let mut d = Vec::new();
+            let t = read_table(
+                &format!("{header}\n2026-04-01;1850\n"),
+                &crate::participant::records::INTAKE,
+                &opts,
+                &ctx,
+                &mut d,
+            )
+            .unwrap_or_else(|| panic!("{header}: {d:?}"));
+            assert!(d.is_empty(), "{header}: {d:?}");
+            assert_eq!(t.get(&t.rows[0], "kcal"), Some("1850"), "{header}");
+            ctx.take_notes();
+        }
+    }
+
     #[test]
     fn headers_with_units_aliases_and_program_mappings() {
         let spec = crate::participant::records::WEIGHTS;

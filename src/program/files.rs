@@ -110,9 +110,15 @@ impl FileSpec {
     }
 }
 
-/// Lowercases a header, takes off a unit in brackets (`Weight (lb)` → `weight`, `lb`) and
-/// writes every run of other characters as one `_` (`Body Weight` → `body_weight`).
+/// Lowercases a header, takes off a unit in brackets (`Weight (lb)` → `weight`, `lb`), folds
+/// accents (`Énergie` → `energie`: canonical decomposition, NFD, with the combining marks
+/// dropped, so a letter typed as one character or as a letter and an accent reads the same) and
+/// writes every run of other characters as one `_` (`Body Weight` → `body_weight`). The aliases
+/// are written without accents; an accented header (`Énergie (kcal)` of a French food app) did
+/// not match `energie`, and a decomposed one split at its accent (`e_nergie`).
 pub fn header_key(h: &str) -> (String, Option<String>) {
+    use unicode_normalization::UnicodeNormalization;
+    use unicode_normalization::char::is_combining_mark;
     let h = h.trim().trim_start_matches('\u{feff}');
     let mut unit = None;
     let mut base = h;
@@ -129,7 +135,12 @@ pub fn header_key(h: &str) -> (String, Option<String>) {
         }
     }
     let mut key = String::with_capacity(base.len());
-    for c in base.trim().chars().flat_map(char::to_lowercase) {
+    for c in base
+        .trim()
+        .nfd()
+        .filter(|c| !is_combining_mark(*c))
+        .flat_map(char::to_lowercase)
+    {
         if c.is_alphanumeric() {
             key.push(c);
         } else if !key.ends_with('_') {

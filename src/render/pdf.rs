@@ -414,15 +414,24 @@ impl Layout {
         self.y -= size * 0.3;
     }
 
-    fn paragraph(&mut self, text: &str, size: f32, colour: Color) {
+    /// A paragraph whose last two lines stay on one page with the next `tail` points (none
+    /// when `tail` is 0).
+    fn paragraph(&mut self, text: &str, size: f32, colour: Color, tail: f32) {
         let lines = wrap(text, Face::Regular, size, CONTENT_W);
         self.tags.open("P");
-        self.lines(&lines, Face::Regular, size, &colour, MARGIN_X);
+        let kept = if tail > 0.0 { lines.len().min(2) } else { 0 };
+        let (body, last) = lines.split_at(lines.len() - kept);
+        self.lines(body, Face::Regular, size, &colour, MARGIN_X);
+        if kept > 0 {
+            self.ensure(kept as f32 * size * LEADING + size * 0.6 + tail);
+        }
+        self.lines(last, Face::Regular, size, &colour, MARGIN_X);
         self.tags.close();
         self.y -= size * 0.6;
     }
 
-    fn key_values(&mut self, kvs: &[(String, String)]) {
+    /// A two-column block; its last row stays on one page with the next `tail` points.
+    fn key_values(&mut self, kvs: &[(String, String)], tail: f32) {
         let regular = font::face(Face::Regular);
         let widest = kvs
             .iter()
@@ -449,10 +458,15 @@ impl Layout {
         }
         // A two-column table to assistive technology: each label heads its row.
         self.tags.open("Table");
-        for (kl, vl) in &wrapped {
+        for (n, (kl, vl)) in wrapped.iter().enumerate() {
             let rows = kl.len().max(vl.len());
-            // Rows are short; keep each together.
-            self.ensure(lh * rows as f32);
+            // Rows are short; keep each together (the last with what must follow it).
+            let after = if n + 1 == wrapped.len() && tail > 0.0 {
+                BODY * 0.6 + tail
+            } else {
+                0.0
+            };
+            self.ensure(lh * rows as f32 + after);
             let top = self.y;
             self.tags.open("TR");
             self.tags.open_header_cell("Row");
@@ -474,7 +488,9 @@ impl Layout {
         self.y -= BODY * 0.6;
     }
 
-    fn bullets(&mut self, items: &[String], numbered: bool) {
+    /// A list; its last line stays on one page with the next `tail` points (its last item
+    /// whole when that is short).
+    fn bullets(&mut self, items: &[String], numbered: bool, tail: f32) {
         let indent = if numbered { 18.0 } else { 13.0 };
         let lh = BODY * LEADING;
         self.tags.open("L");
@@ -485,13 +501,18 @@ impl Layout {
                 "•".to_string()
             };
             let lines = wrap(item, Face::Regular, BODY, CONTENT_W - indent);
+            let after = if n + 1 == items.len() && tail > 0.0 {
+                1.5 + BODY * 0.5 + tail
+            } else {
+                0.0
+            };
             // Keep short items together; long ones may break between lines.
             if lines.len() <= 4 {
-                self.ensure(lh * lines.len() as f32);
+                self.ensure(lh * lines.len() as f32 + after);
             }
             self.tags.open("LI");
             for (i, l) in lines.iter().enumerate() {
-                self.ensure(lh);
+                self.ensure(lh + if i + 1 == lines.len() { after } else { 0.0 });
                 let baseline = self.y - BODY * ASCENT;
                 if i == 0 {
                     self.tags.open("Lbl");
@@ -519,7 +540,9 @@ impl Layout {
         self.y -= BODY * 0.5;
     }
 
-    fn table(&mut self, header: &[String], rows: &[Vec<String>], widths: &[f32]) {
+    /// A table; it starts on a page with its header and first [`KEEP_ROWS`] rows, and its last
+    /// row stays on one page with the next `tail` points.
+    fn table(&mut self, header: &[String], rows: &[Vec<String>], widths: &[f32], tail: f32) {
         let ncols = rows
             .iter()
             .map(Vec::len)
@@ -616,13 +639,25 @@ impl Layout {
         };
 
         let body: Vec<Vec<Vec<String>>> = rows.iter().map(|r| wrap_row(r, Face::Regular)).collect();
-        let first_h = body.first().map_or(0.0, |r| row_h(r));
+        // Not one row alone at a page's foot: the header and the first rows start together
+        // (all of them when the table has no more).
+        let first_h: f32 = body.iter().take(KEEP_ROWS).map(|r| row_h(r)).sum();
         self.ensure(header_h + first_h);
         self.tags.open("Table");
         draw_header(self, RowKind::Header);
         for (n, cells) in body.iter().enumerate() {
             let h = row_h(cells);
-            if h > self.remaining() + 0.01 {
+            // The last row is not left alone under a repeated header either: the one before it
+            // goes along.
+            let after_last = if tail > 0.0 { BODY * 0.9 + tail } else { 0.0 };
+            let after = if n + 1 == body.len() {
+                after_last
+            } else if n + 2 == body.len() && n > 0 {
+                row_h(&body[n + 1]) + after_last
+            } else {
+                0.0
+            };
+            if h + after > self.remaining() + 0.01 && !self.at_top() {
                 self.new_page();
                 draw_header(self, RowKind::RepeatedHeader);
             }
@@ -650,26 +685,12 @@ impl Layout {
 
     fn callout(&mut self, tone: Tone, title: &str, text: &str) {
         let (bar, tint) = tone_colours(tone);
-        let pad = 7.0;
-        let bar_w = 3.0;
+        let pad = CALLOUT_PAD;
+        let bar_w = CALLOUT_BAR;
         let inner_x = MARGIN_X + bar_w + pad;
         let inner_w = CONTENT_W - bar_w - 2.0 * pad;
         let lh = BODY * LEADING;
-        let mut lines: Vec<(Face, String)> = Vec::new();
-        if !title.is_empty() {
-            lines.extend(
-                wrap(title, Face::Bold, BODY, inner_w)
-                    .into_iter()
-                    .map(|l| (Face::Bold, l)),
-            );
-        }
-        if !text.is_empty() {
-            lines.extend(
-                wrap(text, Face::Regular, BODY, inner_w)
-                    .into_iter()
-                    .map(|l| (Face::Regular, l)),
-            );
-        }
+        let lines = callout_lines(title, text, inner_w);
         if lines.is_empty() {
             return;
         }
@@ -725,39 +746,46 @@ impl Layout {
         self.y -= BODY * 0.9;
     }
 
-    /// Lays out `b`; `next` is the block after it (a heading stays with its start).
-    fn block(&mut self, b: &Block, next: Option<&Block>) {
+    /// Lays out `b`; `rest` are the blocks after it (a heading stays with the start of what
+    /// follows it, a block's end with a box that follows it).
+    fn block(&mut self, b: &Block, rest: &[Block]) {
+        let next = rest.first();
+        // A box moves to the next page whole when it fits there (see `callout`); the end of
+        // the block before it goes along, so the box never stands alone on a page (the group
+        // report's last page held only its "Please read" box).
+        let tail = match next {
+            Some(Block::Callout { title, text, .. }) => {
+                Some(callout_height(title, text)).filter(|h| *h <= CONTENT_TOP - CONTENT_BOTTOM)
+            }
+            _ => None,
+        }
+        .unwrap_or(0.0);
         match b {
             Block::Heading { level, text } => {
-                // A chart is not split, so a heading above one needs the whole chart's room;
-                // otherwise three lines of body text.
-                let keep = match next {
-                    Some(Block::Chart(c)) => {
-                        let (w, h) = c.pdf_canvas();
-                        CONTENT_W * h as f32 / w as f32 + 2.0
-                    }
-                    _ => 3.0 * BODY * LEADING,
-                };
+                // A heading stays on one page with the start of what follows: a chart whole
+                // (it is not split), a table's header and first rows, and the start of a
+                // heading below it with what that one keeps (the group report's page that
+                // ended with "Methods" and one row, or a site's two headings and one row).
+                let keep = start_height(rest);
                 self.heading(*level, text, keep)
             }
-            Block::Paragraph(t) => self.paragraph(t, BODY, ink()),
+            Block::Paragraph(t) => self.paragraph(t, BODY, ink(), tail),
             Block::Small(t) => {
                 // A note that introduces a table (a caption, "Data behind the chart") stays on
                 // a page with the table's header and first rows.
                 if matches!(next, Some(Block::Table { .. })) {
-                    let lines = wrap(t, Face::Regular, SMALL, CONTENT_W).len() as f32;
-                    self.ensure(lines * SMALL * LEADING + 3.0 * TABLE * 1.3 + 12.0);
+                    self.ensure(start_height(std::slice::from_ref(b)) + start_height(rest));
                 }
-                self.paragraph(t, SMALL, muted())
+                self.paragraph(t, SMALL, muted(), tail)
             }
-            Block::KeyValues(kvs) => self.key_values(kvs),
-            Block::Bullets(items) => self.bullets(items, false),
-            Block::Numbered(items) => self.bullets(items, true),
+            Block::KeyValues(kvs) => self.key_values(kvs, tail),
+            Block::Bullets(items) => self.bullets(items, false, tail),
+            Block::Numbered(items) => self.bullets(items, true, tail),
             Block::Table {
                 header,
                 rows,
                 widths,
-            } => self.table(header, rows, widths),
+            } => self.table(header, rows, widths, tail),
             Block::Chart(c) => self.chart(c),
             Block::Callout { tone, title, text } => self.callout(*tone, title, text),
             Block::PageBreak => {
@@ -767,6 +795,144 @@ impl Layout {
             }
         }
     }
+}
+
+/// Rows of a table kept on a page with its header where it starts (program choice, as the three
+/// lines kept under a heading).
+const KEEP_ROWS: usize = 3;
+
+/// Inner padding of a callout box, pt.
+const CALLOUT_PAD: f32 = 7.0;
+/// Width of a callout box's coloured bar, pt.
+const CALLOUT_BAR: f32 = 3.0;
+
+/// The lines of a callout box whose text is `inner_w` wide: the title's, bold, then the text's.
+fn callout_lines(title: &str, text: &str, inner_w: f32) -> Vec<(Face, String)> {
+    let mut lines: Vec<(Face, String)> = Vec::new();
+    if !title.is_empty() {
+        lines.extend(
+            wrap(title, Face::Bold, BODY, inner_w)
+                .into_iter()
+                .map(|l| (Face::Bold, l)),
+        );
+    }
+    if !text.is_empty() {
+        lines.extend(
+            wrap(text, Face::Regular, BODY, inner_w)
+                .into_iter()
+                .map(|l| (Face::Regular, l)),
+        );
+    }
+    lines
+}
+
+/// The height a whole callout box takes, its gap above included, pt.
+fn callout_height(title: &str, text: &str) -> f32 {
+    let inner_w = CONTENT_W - CALLOUT_BAR - 2.0 * CALLOUT_PAD;
+    let n = callout_lines(title, text, inner_w).len();
+    if n == 0 {
+        return 0.0;
+    }
+    2.0 + n as f32 * BODY * LEADING + 2.0 * CALLOUT_PAD
+}
+
+/// The height of a heading's lines with the space around them, pt (as [`Layout::heading`]
+/// lays it out away from a page's top).
+fn heading_height(level: u8, text: &str) -> f32 {
+    let size = match level {
+        0 | 1 => 17.0,
+        2 => 13.0,
+        _ => 11.0,
+    };
+    let lines = wrap(text, Face::Bold, size, CONTENT_W).len() as f32;
+    size * 0.7 + lines * size * 1.25 + if level <= 1 { 4.0 } else { 0.0 } + size * 0.3
+}
+
+/// How much of `rest` must stand on the same page as a heading above it: a chart whole, a
+/// table's header and first [`KEEP_ROWS`] rows, the first row of a key–value block, a box
+/// whole, three lines of text, and a heading with what it keeps in turn. Never more than a
+/// page: what cannot be kept together anyway starts where it is.
+fn start_height(rest: &[Block]) -> f32 {
+    let lh = BODY * LEADING;
+    let h = match rest.first() {
+        None | Some(Block::PageBreak) => 0.0,
+        Some(Block::Heading { level, text }) => {
+            heading_height(*level, text) + start_height(&rest[1..])
+        }
+        Some(Block::Chart(c)) => {
+            let (w, h) = c.pdf_canvas();
+            CONTENT_W * h as f32 / w as f32 + 2.0
+        }
+        Some(Block::Table {
+            header,
+            rows,
+            widths,
+        }) => table_start_height(header, rows, widths),
+        Some(Block::KeyValues(kvs)) => {
+            let regular = font::face(Face::Regular);
+            let widest = kvs
+                .iter()
+                .map(|(k, _)| regular.width(k, BODY))
+                .fold(0.0f32, f32::max);
+            let key_w = (widest + 12.0).min(CONTENT_W * 0.38);
+            kvs.first().map_or(0.0, |(k, v)| {
+                let n = wrap(k, Face::Regular, BODY, key_w - 10.0)
+                    .len()
+                    .max(wrap(v, Face::Regular, BODY, CONTENT_W - key_w).len());
+                n as f32 * lh
+            })
+        }
+        Some(Block::Callout { title, text, .. }) => callout_height(title, text),
+        Some(Block::Small(t)) => {
+            wrap(t, Face::Regular, SMALL, CONTENT_W).len().min(3) as f32 * SMALL * LEADING
+        }
+        Some(Block::Paragraph(t)) => {
+            wrap(t, Face::Regular, BODY, CONTENT_W).len().min(3) as f32 * lh
+        }
+        Some(Block::Bullets(items) | Block::Numbered(items)) => items.first().map_or(0.0, |i| {
+            wrap(i, Face::Regular, BODY, CONTENT_W - 18.0).len().min(4) as f32 * lh
+        }),
+    };
+    h.min(CONTENT_TOP - CONTENT_BOTTOM)
+}
+
+/// The height of a table's header and first [`KEEP_ROWS`] rows, as [`Layout::table`] lays
+/// them out, pt.
+fn table_start_height(header: &[String], rows: &[Vec<String>], widths: &[f32]) -> f32 {
+    let ncols = rows
+        .iter()
+        .map(Vec::len)
+        .chain([header.len()])
+        .max()
+        .unwrap_or(0);
+    if ncols == 0 {
+        return 0.0;
+    }
+    let col_w = column_widths(header, rows, widths, ncols);
+    let row_h = |cells: &[String], face: Face| -> f32 {
+        let n = (0..ncols)
+            .map(|i| {
+                wrap_cell(
+                    cells.get(i).map(String::as_str).unwrap_or(""),
+                    face,
+                    col_w[i],
+                )
+                .len()
+            })
+            .max()
+            .unwrap_or(1);
+        n as f32 * TABLE * 1.3 + 6.0
+    };
+    let head = if header.is_empty() {
+        0.0
+    } else {
+        row_h(header, Face::Bold)
+    };
+    head + rows
+        .iter()
+        .take(KEEP_ROWS)
+        .map(|r| row_h(r, Face::Regular))
+        .sum::<f32>()
 }
 
 /// Lines of a key–value block up to which it is kept on one page (program choice: a record
@@ -1086,7 +1252,7 @@ fn compress_streams(doc: &mut lopdf::Document) -> Result<(), PdfError> {
 pub fn render_pdf(doc: &Document) -> Result<Vec<u8>, PdfError> {
     let mut layout = Layout::new();
     for (i, b) in doc.blocks.iter().enumerate() {
-        layout.block(b, doc.blocks.get(i + 1));
+        layout.block(b, &doc.blocks[i + 1..]);
     }
     let tags = layout.tags;
     let mut pages = layout.pages;
@@ -1881,6 +2047,116 @@ pub(crate) mod tests {
         assert!(texts[1].contains("Weight over time") && texts[1].contains("weigh-ins"));
     }
 
+    /// The text each page of `blocks` laid out shows, one string per page.
+    fn laid_out(blocks: &[Block]) -> Vec<String> {
+        let mut layout = Layout::new();
+        for (i, b) in blocks.iter().enumerate() {
+            layout.block(b, &blocks[i + 1..]);
+        }
+        layout
+            .pages
+            .iter()
+            .map(|page| {
+                let mut shown = String::new();
+                for op in page {
+                    if let Op::ShowText { items } = op {
+                        for i in items {
+                            if let TextItem::Text(t) = i {
+                                shown.push_str(t);
+                                shown.push('|');
+                            }
+                        }
+                    }
+                }
+                shown
+            })
+            .collect()
+    }
+
+    /// A heading stays with the start of what follows it, whatever falls at the page's foot:
+    /// the group report had a page ending with its "Methods" heading and one row, and a site's
+    /// two headings with a table's header and one row. With any amount of text above, the page
+    /// that holds the headings holds the table's first three rows too.
+    #[test]
+    fn a_heading_keeps_a_table_s_first_rows_with_it() {
+        for n in 20..60 {
+            let mut blocks: Vec<Block> = (0..n)
+                .map(|i| Block::Paragraph(format!("Filler line {i}.")))
+                .collect();
+            blocks.push(Block::Heading {
+                level: 2,
+                text: "Site: Quay Lab".into(),
+            });
+            blocks.push(Block::Heading {
+                level: 3,
+                text: "Enrolment and retention".into(),
+            });
+            blocks.push(Block::Table {
+                header: vec!["Measure".into(), "Participants".into()],
+                rows: (1..=8)
+                    .map(|r| vec![format!("Row {r}"), format!("{}", 40 + r)])
+                    .collect(),
+                widths: vec![],
+            });
+            let pages = laid_out(&blocks);
+            let at = pages
+                .iter()
+                .position(|p| p.contains("Site: Quay Lab"))
+                .unwrap();
+            assert!(
+                pages[at].contains("Enrolment and retention") && pages[at].contains("Row 3|"),
+                "{n} lines above: page {} ends {:?}",
+                at + 1,
+                &pages[at][pages[at].len().saturating_sub(120)..]
+            );
+            // Nor is the table's last row left alone under a repeated header.
+            let last = pages.iter().position(|p| p.contains("Row 8|")).unwrap();
+            assert!(pages[last].contains("Row 7|"), "{n} lines above");
+        }
+    }
+
+    /// A box that moves to the next page whole takes the last row of the block before it
+    /// along: the group report's last page held only its "Please read" box.
+    #[test]
+    fn a_box_never_stands_alone_on_a_page_after_a_block() {
+        let caution = "Counts from 1 to 10 are not shown exactly, and other cells are hidden too \
+                       where a hidden count could otherwise be worked out by subtraction. "
+            .repeat(6);
+        for n in 10..50 {
+            let mut blocks: Vec<Block> = (0..n)
+                .map(|i| Block::Paragraph(format!("Filler line {i}.")))
+                .collect();
+            blocks.push(if n % 2 == 0 {
+                Block::KeyValues(
+                    (1..=4)
+                        .map(|r| (format!("Method {r}"), format!("How it is done, part {r}.")))
+                        .collect(),
+                )
+            } else {
+                Block::Bullets(
+                    (1..=4)
+                        .map(|r| format!("How it is done, part {r}."))
+                        .collect(),
+                )
+            });
+            blocks.push(Block::Callout {
+                tone: Tone::Caution,
+                title: "Please read".into(),
+                text: caution.clone(),
+            });
+            let pages = laid_out(&blocks);
+            let at = pages
+                .iter()
+                .position(|p| p.contains("Please read"))
+                .unwrap();
+            assert!(
+                pages[at].contains("How it is done, part 4."),
+                "{n} lines above: page {} has the box without the block's last row",
+                at + 1
+            );
+        }
+    }
+
     /// A level-1 heading of 3,000 letters (a participant's name) filled page 1 and was drawn on
     /// over the running footer and off the page: its lines were never given a page break.
     #[test]
@@ -1892,9 +2168,9 @@ pub(crate) mod tests {
                 level: 1,
                 text: name.clone(),
             },
-            None,
+            &[],
         );
-        layout.block(&Block::Paragraph("After the heading.".into()), None);
+        layout.block(&Block::Paragraph("After the heading.".into()), &[]);
         assert!(layout.pages.len() >= 3, "{} pages", layout.pages.len());
         let mut shown = String::new();
         for (n, page) in layout.pages.iter().enumerate() {

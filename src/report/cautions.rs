@@ -55,9 +55,49 @@ pub fn group(min_cell: u32) -> Vec<String> {
             min_cell
         ),
         "Weight outcomes are given under modified intention-to-treat (everyone who started, that is who has a baseline weight, with the starting weight carried forward for anyone without a recent weigh-in) and for completers only; completer figures alone overstate what a program achieves.".into(),
-        "Individual clinical flags (very low intake, fast loss, low BMI, lab values in the diabetes range) are routed to participants' own reports and, where the program names a recipient, to a private follow-up list for the program's clinician; only the number of people with one appears here (it includes flags first seen at follow-up weigh-ins of people who stopped the program). Local rules and licensed practice come first.".into(),
+        format!(
+            "Individual clinical flags ({}) are routed to participants' own reports and, where the program names a recipient, to a private follow-up list for the program's clinician; only the number of people with one appears here (it includes flags first seen at follow-up weigh-ins of people who stopped the program). Local rules and licensed practice come first.",
+            CLINICAL_FLAGS
+                .iter()
+                .map(|(_, words)| *words)
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
     ]
 }
+
+/// Every flag a module raises as clinical (a participant report's, the follow-up list's and the
+/// group report's count of people with one), as (code, the group report's words for it). The
+/// group report's cautions name them all, so a sponsor reads what the count covers; its list
+/// named four ("very low intake, fast loss, low BMI, lab values in the diabetes range") while a
+/// low fasting glucose, a fast rise, a step in the weigh-ins and eight more were counted too.
+pub const CLINICAL_FLAGS: [(&str, &str); 13] = [
+    ("very_low_intake", "a very low logged intake"),
+    (
+        "very_low_implied_intake",
+        "a weight trend that implies a very low intake",
+    ),
+    ("low_intake", "a low intake"),
+    (
+        "below_resting_intake",
+        "intake below resting energy for weeks",
+    ),
+    ("fast_loss", "fast loss"),
+    ("fast_gain", "a fast rise"),
+    ("weigh_in_step", "a step in the weigh-ins"),
+    ("low_bmi", "a low BMI"),
+    (
+        "forecast_underweight",
+        "a forecast of weight falling into the underweight range",
+    ),
+    ("lab_diabetes_range", "a lab value in the diabetes range"),
+    (
+        "lab_low_glucose",
+        "a fasting glucose below 70 mg/dL (low blood sugar)",
+    ),
+    ("medication_review", "a glucose-lowering medicine to review"),
+    ("pregnancy", "a pregnancy noted in the profile"),
+];
 
 #[cfg(test)]
 mod tests {
@@ -72,6 +112,42 @@ mod tests {
         let text = group(11)[3].clone();
         assert!(
             text.contains("it includes flags first seen at follow-up weigh-ins of people who stopped the program"),
+            "{text}"
+        );
+    }
+
+    /// Every flag a module can raise as clinical is named in the group report's cautions: the
+    /// list named four (no low fasting glucose, `lab_low_glucose`, nor a fast rise, a step in the
+    /// weigh-ins, low or below-resting intake, a forecast into underweight, medication review or
+    /// pregnancy) while the count beside it covered them all. A flag code is clinical here when
+    /// the follow-up list has a reason of its own for it, as it has for every clinical flag.
+    #[test]
+    fn the_group_cautions_name_every_clinical_flag() {
+        use cohortpress_metric_api::view::Code;
+        use cohortpress_metric_energy::view::EnergyFlag;
+        use cohortpress_metric_outcomes::view::OutcomesFlag;
+        use cohortpress_metric_trend::view::TrendFlag;
+        let generic = super::super::followup::reason("no_such_flag");
+        let codes: Vec<&str> = OutcomesFlag::all()
+            .iter()
+            .map(|c| c.code())
+            .chain(EnergyFlag::all().iter().map(|c| c.code()))
+            .chain(TrendFlag::all().iter().map(|c| c.code()))
+            .filter(|c| super::super::followup::reason(c) != generic)
+            .collect();
+        assert!(codes.contains(&"lab_low_glucose"), "{codes:?}");
+        let text = group(11)[3].clone();
+        for code in &codes {
+            let words = CLINICAL_FLAGS
+                .iter()
+                .find(|(c, _)| c == code)
+                .unwrap_or_else(|| panic!("{code}: no words in CLINICAL_FLAGS"))
+                .1;
+            assert!(text.contains(words), "{code}: {words} not in {text}");
+        }
+        assert_eq!(codes.len(), CLINICAL_FLAGS.len(), "{codes:?}");
+        assert!(
+            text.contains("a fasting glucose below 70 mg/dL (low blood sugar)"),
             "{text}"
         );
     }

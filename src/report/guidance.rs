@@ -495,6 +495,25 @@ pub struct GuidanceView {
     pub floor_kcal: f64,
 }
 
+impl GuidanceView {
+    /// Of the options that restart a steady loss at the `energy` module's target rate (its
+    /// `options` rows, which `metrics/tables.csv` marks with the report's verdict): whether this
+    /// section offers eating less alone, walking more alone, and some of each, in that order.
+    /// The options of another phase (what stops a regain) are sized otherwise and are none of
+    /// these.
+    pub fn loss_options_offered(&self) -> [bool; 3] {
+        if self.phase != Phase::RestartLoss.code() {
+            return [false; 3];
+        }
+        let any = |f: fn(&OptionView) -> bool| self.options.iter().any(f);
+        [
+            any(|o| o.intake_cut_kcal > 0.0 && o.walk_minutes == 0.0),
+            any(|o| o.intake_cut_kcal == 0.0 && o.walk_minutes > 0.0),
+            any(|o| o.intake_cut_kcal > 0.0 && o.walk_minutes > 0.0),
+        ]
+    }
+}
+
 /// A value with an optional 95 % interval.
 #[derive(Debug, Clone, Copy, PartialEq)]
 struct Est {

@@ -404,17 +404,25 @@ pub fn build(
                 weigh_days.iter().filter(|d| **d >= from).count()
             },
         ),
-        summary: summary(
-            &v,
-            units,
-            plan.period.to,
-            change_measured,
-            data.weights
-                .iter()
-                .map(|w| w.date)
-                .filter(|d| *d <= plan.period.to)
-                .max(),
-        ),
+        summary: {
+            let mut rows = summary(
+                &v,
+                units,
+                plan.period.to,
+                change_measured,
+                data.weights
+                    .iter()
+                    .map(|w| w.date)
+                    .filter(|d| *d <= plan.period.to)
+                    .max(),
+            );
+            if !rows.is_empty()
+                && let Some(words) = away_scale_words(&data.weights, plan.period.to, units)
+            {
+                rows.push(Kv::new("Weighed", &words));
+            }
+            rows
+        },
         milestones: v
             .outcomes
             .as_ref()
@@ -579,6 +587,59 @@ fn summary(
         summary.push(Kv::new("Weight", "no weigh-in recorded yet"));
     }
     summary
+}
+
+/// What "Where you stand" says of someone whose every weigh-in up to `to` comes from a scale
+/// other than their own (`source` set and not naming "home": a clinic's, a pharmacy's), `None`
+/// otherwise. The trend takes a source's offset (clothes and shoes, another scale) off its
+/// readings only against at least 10 days of home weigh-ins, so such a person's current and
+/// starting weight and BMI are as that scale read them: a participant weighed clothed at the
+/// clinic once a month read "Current weight (trend) 92.4 kg" and "BMI 35.2" with no word that
+/// they include what she wore (tryout24). Clothes and shoes weigh about 0.5–1.5 kg (common
+/// practice, as the trend's prior says). The change since the start is not affected when
+/// every weigh-in is taken the same way.
+fn away_scale_words(
+    weights: &[cohortpress_metric_api::WeighIn],
+    to: NaiveDate,
+    units: UnitSystem,
+) -> Option<String> {
+    let mut sources = std::collections::BTreeSet::new();
+    for w in weights.iter().filter(|w| w.date <= to) {
+        match w.source.as_deref() {
+            Some(s) if !cohortpress_metric_trend::is_home_source(Some(s)) => {
+                sources.insert(s);
+            }
+            _ => return None,
+        }
+    }
+    if sources.is_empty() {
+        return None;
+    }
+    let names: Vec<String> = sources
+        .iter()
+        .take(3)
+        .map(|s| {
+            let mut name: String = s.chars().take(40).collect();
+            if name.len() < s.len() {
+                name.push('…');
+            }
+            format!("“{name}”")
+        })
+        .collect();
+    let more = match sources.len() {
+        n if n > 3 => format!(" and {} more", n - 3),
+        _ => String::new(),
+    };
+    Some(format!(
+        "only on a scale other than your own (your weigh-ins are marked {}{more}), so the \
+         weights and BMI above are as that scale read them, with whatever you wore (clothes and \
+         shoes often add {} to {}); without weigh-ins on a home scale that part cannot be \
+         taken off. Your change since you started is not affected when you are weighed the same \
+         way each time.",
+        names.join(", "),
+        fmt::weight(0.5, units),
+        fmt::weight(1.5, units),
+    ))
 }
 
 /// The BMI row: the BMI to one decimal, never rounded across the range its WHO class names
@@ -910,7 +971,24 @@ fn headline(
         }
         None => {}
     }
+    // A rise from the lowest trend weight confirmed by level is named whatever the last four
+    // weeks' slope says (a sparse weigher's regain is otherwise invisible here), and first: the
+    // verdict with its evidence, then the last four weeks in words that do not call the same
+    // weight a plateau ("edged up …, slowly enough to count as a plateau. Your trend weight is
+    // now about 1.4 kg above its lowest point" read as two verdicts at odds).
+    let regain = trend
+        .filter(|_| status != Status::Regaining)
+        .and_then(|t| guidance::regain_words(t, units));
     let lead = match status {
+        Status::Plateau | Status::Stable if regain.is_some() => {
+            if trend.is_some_and(guidance::still_rising) {
+                format!("Over the last four weeks it has kept edging up ({rate_s}).")
+            } else if trend.is_some_and(guidance::still_falling) {
+                format!("Over the last four weeks it has edged down slowly ({rate_s}).")
+            } else {
+                "Over the last four weeks it has held about level.".to_string()
+            }
+        }
         // "Going down by" carries the sign already: "by about 1.32 kg/week", not "−1.32".
         Status::Losing => format!(
             "Your weight trend is going down, by about {} {}/week over the last four weeks.",
@@ -982,14 +1060,12 @@ fn headline(
     } else {
         lead
     };
-    // A rise from the lowest trend weight confirmed by level is named whatever the last four
-    // weeks' slope says (a sparse weigher's regain is otherwise invisible here).
-    let regain = trend
-        .filter(|_| status != Status::Regaining)
-        .and_then(|t| guidance::regain_words(t, units))
-        .map(|w| format!(" Your trend weight is now {w}."))
-        .unwrap_or_default();
-    format!("{lead}{regain}{since}")
+    match regain {
+        Some(w) => format!(
+            "Your weight has come back up from its lowest point: your trend weight is now {w}. {lead}{since}"
+        ),
+        None => format!("{lead}{since}"),
+    }
 }
 
 /// The numbers behind a plateau reading, in plain words and the program's display units (the
@@ -2594,9 +2670,9 @@ mod activity_unread_tests {
         let h = plain_headline(&t);
         assert_eq!(
             h,
-            "There are too few recent weigh-ins to see how your weight moved over the last four \
-             weeks. Your trend weight is now about 5.3 kg above its lowest point so far (95 % \
-             range 3.8 to 6.8 kg)."
+            "Your weight has come back up from its lowest point: your trend weight is now about \
+             5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg). There are too few \
+             recent weigh-ins to see how your weight moved over the last four weeks."
         );
         let v = BuiltinViews {
             trend: Some(t.clone()),
@@ -2658,6 +2734,55 @@ mod activity_unread_tests {
         assert_eq!(
             summary(&v, UnitSystem::Metric, to, true, None)[0].label,
             "Current weight (trend)"
+        );
+    }
+
+    /// A slow, steady regain after a loss: the trend module's status is `plateau` (a slope
+    /// inside the plateau band) and its verdict `regaining` (a rise from the lowest point
+    /// confirmed). The headline read "Your weight has edged up over the last four weeks
+    /// (+0.15 kg/week), slowly enough to count as a plateau. Your trend weight is now about
+    /// 1.4 kg above its lowest point so far …": two verdicts at odds. The confirmed rise comes
+    /// first, with its evidence, and the last four weeks are told without "plateau".
+    #[test]
+    fn a_confirmed_regain_comes_first_and_is_not_called_a_plateau() {
+        use cohortpress_metric_trend::view::RegainVerdict;
+        let mut t = TrendView {
+            status: Status::Plateau,
+            regain_verdict: Some(RegainVerdict::Regaining),
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week = Interval {
+            value: Some(0.15),
+            lower: Some(0.04),
+            upper: Some(0.26),
+        };
+        t.regain_kg = Interval {
+            value: Some(1.42),
+            lower: Some(1.01),
+            upper: Some(1.83),
+        };
+        let h = plain_headline(&t);
+        assert_eq!(
+            h,
+            "Your weight has come back up from its lowest point: your trend weight is now about \
+             1.4 kg above its lowest point so far (95 % range 1.0 to 1.8 kg). Over the last four \
+             weeks it has kept edging up (+0.15 kg/week)."
+        );
+        // Level, or a stable status: still no plateau beside the rise.
+        t.slope_kg_per_week.lower = Some(-0.05);
+        for status in [Status::Plateau, Status::Stable] {
+            t.status = status;
+            let h = plain_headline(&t);
+            assert!(h.starts_with("Your weight has come back up"), "{h}");
+            assert!(h.ends_with("it has held about level."), "{h}");
+            assert!(!h.contains("plateau"), "{h}");
+        }
+        // Without the confirmed rise the plateau is named as before.
+        t.status = Status::Plateau;
+        t.regain_verdict = Some(RegainVerdict::NotRegaining);
+        assert_eq!(
+            plain_headline(&t),
+            "Your weight has held steady over the last four weeks (a plateau)."
         );
     }
 

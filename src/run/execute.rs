@@ -121,6 +121,27 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     if let Some(note) = plan.ended_note() {
         tracing::info!("{note}");
     }
+    // The cron line's period went back: its output folder holds a later month than the one
+    // program.yaml's rule gives for this as-of date (a clock set back, a wrong `--as-of`), and
+    // the run replaced March's reports with December's without a word (tryout24).
+    if !plan.period_named
+        && plan.only.is_empty()
+        && plan.shard.is_none()
+        && let Some((from, to)) = published_period(&plan.out_dir, &plan.program.info.id)
+        && to > plan.period.to.to_string()
+    {
+        tracing::warn!(
+            "{} holds the reports of {from} to {to}, a later period than this run's ({} to {}, \
+             which program.yaml's `report.period` gives for the as-of date {}): this run \
+             replaces them with the earlier period's; if the machine's clock or --as-of is \
+             wrong, correct it and run again, which makes the later period's reports again; \
+             to make an earlier month on purpose, name it with --period and an --out of its own",
+            plan.out_dir.display(),
+            plan.period.from,
+            plan.period.to,
+            plan.as_of
+        );
+    }
 
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(plan.jobs)
@@ -557,6 +578,47 @@ pub fn finish(
         let program_id = plan.program.info.id.clone();
         let (period_from, period_to) = (plan.period.from.to_string(), plan.period.to.to_string());
         let period_words = format!("{period_from} to {period_to}");
+        // A month the monthly run missed: no later run said so, and its participants never got
+        // that month's report. Logged at WARN, once: by the first run of the month after the
+        // gap (a re-run of it, or the program's last month reported again after the end, finds
+        // this one's release). The exit code is unchanged: this run's own output is complete.
+        let missed = if ledger.has_release(&program_id, &period_from, &period_to) {
+            Vec::new()
+        } else {
+            ledger.months_missed_before(&program_id, plan.period.from)
+        };
+        if !missed.is_empty() {
+            let months: Vec<String> = missed
+                .iter()
+                .map(|m| m.format("%Y-%m").to_string())
+                .collect();
+            let (one, many) = (missed.len() == 1, months.join(", "));
+            let (it, its, that) = if one {
+                ("it", "its", "that month")
+            } else {
+                ("them", "their", "those months")
+            };
+            let last = missed
+                .first()
+                .and_then(|m| m.pred_opt())
+                .map(|d| d.format("%Y-%m").to_string())
+                .unwrap_or_default();
+            tracing::warn!(
+                "group-report ledger {}: no report of this program was made for the month{} \
+                 {many}, between the last month recorded ({last}) and this run's ({}): no run \
+                 reported {it} (the machine was off on the day, the cron line paused, the clock \
+                 wrong), so {its} participants have no report of {that} and the sponsor no \
+                 group report; to make {it}, run `cohortpress run {} --period {} --out DIR` \
+                 with an output folder of its own for each month (into {} it would replace \
+                 this month's reports)",
+                ledger.dir().display(),
+                if one { "" } else { "s" },
+                plan.period.from.format("%Y-%m"),
+                plan.program.root.display(),
+                months[0],
+                plan.out_dir.display(),
+            );
+        }
         // A period already released (a re-run, a cron job retried) is first audited without its
         // own earlier issues: a result that is one of them publishes nothing the sponsor has
         // not had, and is kept. Audited against the release of the very same figures, the
@@ -937,6 +999,14 @@ fn process_participant(
             &summary,
             plan.period.to,
             &loaded.rows,
+            {
+                let [intake, walking, both] = ctx.ctx.guidance.loss_options_offered();
+                tidy::ReportOffers {
+                    intake,
+                    walking,
+                    both,
+                }
+            },
         )));
         // Clinician follow-up list: this participant's flags, when the program turns it on.
         rec.followup = report::followup::for_participant(

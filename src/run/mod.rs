@@ -103,7 +103,37 @@ impl From<StagingError> for RunError {
                 message: m,
                 by: Blame::CommandLine,
             },
-            other => RunError::Output(other.to_string()),
+            other => {
+                let hint = match &other {
+                    StagingError::Io { source, .. } | StagingError::Write { source, .. } => {
+                        storage_hint(source.kind())
+                    }
+                    _ => "",
+                };
+                RunError::Output(format!("{other}{hint}"))
+            }
         }
+    }
+}
+
+/// What to do about an output the disk refused, for the log's line: a monthly cron run that
+/// filled its disk logged "…/participants/SG-007.html: No space left on device (os error 28);
+/// the previous outputs … were left as they were", and one on a file system remounted
+/// read-only "…/.reports.lock: Read-only file system (os error 30)", with nothing on what to
+/// do (tryout24). A run needs room for a second copy: it writes the new output beside the
+/// previous one and swaps them only when it is complete.
+fn storage_hint(kind: std::io::ErrorKind) -> &'static str {
+    match kind {
+        std::io::ErrorKind::StorageFull | std::io::ErrorKind::QuotaExceeded => {
+            "; what to do: free space on the disk that holds the output folder (or raise the \
+             quota) and run again: a run writes its whole new output beside the previous one \
+             before it puts it in place, so it needs room for both"
+        }
+        std::io::ErrorKind::ReadOnlyFilesystem => {
+            "; what to do: the output folder's file system is mounted read-only (a disk \
+             remounted read-only after errors should be checked first); make it writable, or \
+             name a folder elsewhere with --out, and run again"
+        }
+        _ => "",
     }
 }

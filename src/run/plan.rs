@@ -68,6 +68,10 @@ pub struct RunPlan {
     pub modules: ModuleSet,
     /// The reporting period.
     pub period: Period,
+    /// Whether the command line named the period (`--period`, `--from`/`--to`) rather than
+    /// program.yaml's `report.period` rule choosing it from the as-of date (a cron line's way).
+    /// `merge` takes the shards' period and counts it as named by the rule.
+    pub period_named: bool,
     /// The day treated as today.
     pub as_of: NaiveDate,
     /// The output folder.
@@ -97,10 +101,13 @@ pub struct RunPlan {
 impl RunPlan {
     /// The log's line for a run after the program's end (`None` before it): a monthly cron
     /// line left in place after the end reported the last period again, month after month, and
-    /// nothing in the log said that the program was over.
+    /// nothing in the log said that the program was over. `None` too when the command line
+    /// named the period: a month reported again by hand after the end (a November cron missed,
+    /// run in May) was told that "no period after the end is ever reported" and to "remove the
+    /// line that starts it", words for the cron line only.
     pub fn ended_note(&self) -> Option<String> {
         let end = self.program.info.end;
-        (self.as_of > end).then(|| {
+        (self.as_of > end && !self.period_named).then(|| {
             format!(
                 "the program ended on {end} (program.yaml's `program.end`): this run reports \
                  {} to {} with the data as of {}; no period after the end is ever reported",
@@ -114,7 +121,7 @@ impl RunPlan {
     /// the run is a shard or `--only`.
     pub fn ended_summary(&self, reported: usize) -> Option<String> {
         let end = self.program.info.end;
-        (self.as_of > end).then(|| {
+        (self.as_of > end && !self.period_named).then(|| {
             let group = if self.shard.is_some() {
                 "; this shard's partial results, to be merged, no group report"
             } else if !self.only.is_empty() {
@@ -344,6 +351,7 @@ pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
         program,
         modules,
         period,
+        period_named: args.period.is_some() || (args.from.is_some() && args.to.is_some()),
         as_of,
         out_dir,
         out_named_by,
@@ -402,6 +410,7 @@ pub fn plan_for_merge(
         program,
         modules,
         period,
+        period_named: false,
         as_of,
         out_dir,
         out_named_by,

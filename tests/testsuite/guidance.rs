@@ -1132,3 +1132,61 @@ fn the_tidy_options_and_the_report_call_the_same_walks_feasible() {
         o.stderr
     );
 }
+
+/// The report's verdict on each of the `energy` module's options is in tables.csv. The module
+/// calls an option `feasible` by its own limits, which the report does not share all of: the
+/// sample program as of 2026-10-01 had SG-042's `combined` row at 0.8 min/d, `feasible: yes`,
+/// while the report offers no walk under `guidance.min_walk_minutes` (10); an intake change
+/// under `min_intake_change_kcal`, or one that takes the logged intake below the floor, was
+/// `yes` in tables.csv and absent from the report too. Each options row now has
+/// `offered_in_report`, which agrees with the report for every participant.
+#[test]
+fn the_tidy_options_say_which_the_report_offered() {
+    let prog = ProgramTest::sample();
+    let o = prog.run(&["run", "{dir}", "--as-of", "2026-10-01", "--out", "out"]);
+    assert!(o.code == 0 || o.code == 4, "{}", o.stderr);
+    let out = prog.dir.join("out");
+    // participant -> row -> column -> value
+    let mut rows: BTreeMap<String, BTreeMap<String, BTreeMap<String, String>>> = BTreeMap::new();
+    for rec in csv::Reader::from_path(out.join("metrics/tables.csv"))
+        .unwrap()
+        .records()
+    {
+        let rec = rec.unwrap();
+        if &rec[1] == "energy" && &rec[2] == "options" {
+            rows.entry(rec[0].to_string())
+                .or_default()
+                .entry(rec[3].to_string())
+                .or_default()
+                .insert(rec[4].to_string(), rec[6].to_string());
+        }
+    }
+    assert!(rows.len() > 20, "{}", rows.len());
+    let (mut offered, mut feasible_not_offered) = (0, Vec::new());
+    for (id, table) in &rows {
+        let html = std::fs::read_to_string(out.join(format!("participants/{id}.html"))).unwrap();
+        // Only options to restart a loss are the module's rows; their introduction says so.
+        let restart = html.contains("What it would take to get back to a steady loss");
+        for row in table.values() {
+            let verdict = row
+                .get("offered_in_report")
+                .unwrap_or_else(|| panic!("{id}: an options row without offered_in_report"));
+            let in_html = match row["kind"].as_str() {
+                "intake" => restart && html.contains("a day less than now (about"),
+                "walking" => restart && html.contains("Walk about"),
+                "combined" => restart && html.contains("Some of each"),
+                k => panic!("{id}: kind {k}"),
+            };
+            assert_eq!(verdict, if in_html { "yes" } else { "no" }, "{id}: {row:?}");
+            offered += usize::from(in_html);
+            if row["feasible"] == "yes" && !in_html {
+                feasible_not_offered.push(format!("{id} {}", row["kind"]));
+            }
+        }
+    }
+    assert!(offered > 5, "{offered}");
+    assert!(
+        feasible_not_offered.contains(&"SG-042 combined".to_string()),
+        "{feasible_not_offered:?}"
+    );
+}

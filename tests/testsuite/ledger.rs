@@ -2009,3 +2009,47 @@ fn a_ledger_write_that_fails_leaves_no_temporary_file() {
     assert!(!state.join("ledger.tmp").exists(), "{}", o.stderr);
     assert_eq!(std::fs::read(state.join("ledger.json")).unwrap(), recorded);
 }
+
+/// A month the monthly cron line did not run (the machine off on the 2nd): the next run went
+/// from October's release to its own December one without a word, and November's reports were
+/// never made (a 12-month tryout, as-of dates 2 Nov then 2 Jan). Now that run says which month
+/// has no report and how to make it, at WARN, once: the month after it, and a month made up
+/// later, say nothing. The exit code is that of the run's own output (the warning is about no
+/// input).
+#[test]
+fn a_run_after_a_missed_month_names_the_month_and_how_to_make_it() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |as_of: &str, extra: &[&str]| {
+        let mut args = vec!["run", "{dir}", "--as-of", as_of, "--formats", "html"];
+        args.extend_from_slice(extra);
+        let o = t.run(&args);
+        // 1: the fixture's rows dated after an early as-of date are warned about.
+        assert!(o.code <= 1, "{o:?}");
+        o.stderr
+    };
+    let missed = "no report of this program was made for";
+    // The cron line: April's report, then (May and June missed) July's.
+    assert!(!run("2026-05-02", &[]).contains(missed));
+    let log = run("2026-08-02", &[]);
+    assert!(
+        log.contains(
+            "no report of this program was made for the months 2026-05, 2026-06, between the \
+             last month recorded (2026-04) and this run's (2026-07)"
+        ),
+        "{log}"
+    );
+    assert!(
+        log.contains("--period 2026-05 --out DIR` with an output folder of its own"),
+        "{log}"
+    );
+    // One month missed (August), then the program's last month reported again after its end:
+    // said once.
+    let log = run("2026-10-02", &[]);
+    assert!(
+        log.contains("made for the month 2026-08, between the last month recorded (2026-07)"),
+        "{log}"
+    );
+    assert!(!run("2026-12-02", &[]).contains(missed));
+    // A month made up by hand into a folder of its own says nothing about the others.
+    assert!(!run("2026-12-03", &["--period", "2026-05", "--out", "may"]).contains(missed));
+}

@@ -1737,3 +1737,75 @@ fn a_run_after_the_program_ended_says_so_in_its_log() {
     );
     assert!(!t.dir.join("nov").exists());
 }
+
+/// The cron line's clock set back (or a wrong `--as-of`): the run reported June into the folder
+/// that held September's reports and replaced them without a word (tryout24: March's reports
+/// replaced by December's). Now it says so at WARN, with what to do; a month named with
+/// `--period` says nothing.
+#[test]
+fn a_run_whose_period_goes_back_says_it_replaces_a_later_one() {
+    let t = ProgramTest::fixture("report-small");
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-10-02", "--formats", "html"]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    assert!(!r.stderr.contains("a later period"), "{}", r.stderr);
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-07-02", "--formats", "html"]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    assert!(
+        r.stderr.contains(
+            "holds the reports of 2026-09-01 to 2026-09-30, a later period than this run's \
+             (2026-06-01 to 2026-06-30, which program.yaml's `report.period` gives for the as-of \
+             date 2026-07-02): this run replaces them with the earlier period's; if the \
+             machine's clock or --as-of is wrong, correct it and run again"
+        ),
+        "{}",
+        r.stderr
+    );
+    // Forward again, and a month named by hand: nothing said.
+    let r = t.run(&["run", "{dir}", "--as-of", "2026-10-02", "--formats", "html"]);
+    assert!(!r.stderr.contains("a later period"), "{}", r.stderr);
+    let r = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-10-02",
+        "--period",
+        "2026-05",
+        "--formats",
+        "html",
+    ]);
+    assert!(r.code <= 1, "{}", r.stderr);
+    assert!(!r.stderr.contains("a later period"), "{}", r.stderr);
+}
+
+/// A month reported again by hand after the program's end, its period named on the command
+/// line (a monthly cron run that was missed, made up in May): its log read "no period after the
+/// end is ever reported" and "once no more data are expected, remove the line that starts it",
+/// words for a cron line without `--period`, which this run is not. Now neither line; the run
+/// is otherwise the same.
+#[test]
+fn a_month_named_after_the_programs_end_is_not_told_to_remove_a_cron_line() {
+    let t = ProgramTest::fixture("report-small");
+    for named in [
+        &["--period", "2026-08", "--out", "aug"][..],
+        &[
+            "--from",
+            "2026-08-01",
+            "--to",
+            "2026-08-31",
+            "--out",
+            "aug2",
+        ][..],
+    ] {
+        let mut args = vec!["run", "{dir}", "--as-of", "2026-12-02"];
+        args.extend_from_slice(named);
+        let r = t.run(&args);
+        assert!(r.code <= 1, "{}", r.stderr);
+        assert!(
+            r.stderr.contains("period 2026-08-01 to 2026-08-31"),
+            "{}",
+            r.stderr
+        );
+        assert!(!r.stderr.contains("the program ended"), "{}", r.stderr);
+        assert!(!r.stderr.contains("remove the line"), "{}", r.stderr);
+    }
+}

@@ -542,6 +542,41 @@ fn a_single_weigh_in_day_reports_no_change_since_the_start() {
     assert!(!html.contains("Since you started"), "the headline");
 }
 
+/// A participant weighed only at the clinic, clothed, read "Current weight (trend) 92.4 kg" and
+/// "BMI 35.2" with no word that every weigh-in was the clinic's: the trend takes a source's
+/// offset off only against home weigh-ins, so those figures include what she wore (tryout24).
+/// "Where you stand" now says so; someone with home weigh-ins (the same participant before) is
+/// not told it.
+#[test]
+fn weigh_ins_only_on_a_scale_away_from_home_are_said_to_include_clothes() {
+    let t = ProgramTest::demo(2);
+    let row = "only on a scale other than your own";
+    let summary_of = |html: &str| {
+        let s = &html[html.find("aria-labelledby=\"h-summary\"").expect("summary")..];
+        s[..s.find("</section>").expect("its end")].to_string()
+    };
+    let before = summary_of(&september_html_of_sg001(&t));
+    assert!(!before.contains(row), "{before}");
+    let path = t.dir.join("participants/SG-001/weights.csv");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let mut lines = text.lines();
+    let header = lines.next().unwrap();
+    assert!(header.ends_with(",source"), "{header}");
+    let rows: Vec<String> = lines
+        .map(|l| format!("{},clinic", &l[..l.rfind(',').unwrap()]))
+        .collect();
+    std::fs::write(&path, format!("{header}\n{}\n", rows.join("\n"))).unwrap();
+    let after = summary_of(&september_html_of_sg001(&t));
+    assert!(
+        after.contains(
+            "only on a scale other than your own (your weigh-ins are marked “clinic”), so the \
+             weights and BMI above are as that scale read them, with whatever you wore"
+        ),
+        "{after}"
+    );
+    assert!(after.contains("Starting weight"), "{after}");
+}
+
 /// The energy section's explanation said "The intake implied by your weight trend comes from a
 /// published model …; it often differs from logged intake" in a report that shows no implied
 /// intake anywhere, neither above nor in the weekly table (two weigh-ins: no trend). It now

@@ -268,6 +268,62 @@ fn a_failed_run_leaves_no_staging_and_the_previous_output() {
     no_leftovers(out.parent().unwrap(), "reports");
 }
 
+/// A monthly run whose disk filled, and the next one after the disk was remounted read-only,
+/// logged the OS's words and the file ("…/SG-007.html: No space left on device (os error 28)",
+/// "…/.reports.lock: Read-only file system (os error 30)") and nothing on what to do
+/// (tryout24). Each now says it; the previous output is kept as before. Needs the right to
+/// mount (root, as on the project's test machine); skipped with a message without it.
+#[cfg(unix)]
+#[test]
+fn a_full_or_read_only_disk_says_what_to_do() {
+    let t = small();
+    let mnt = beside(&t, "disk");
+    std::fs::create_dir(&mnt).unwrap();
+    let Some(tmpfs) = crate::harness::Tmpfs::mount(&mnt) else {
+        return;
+    };
+    let out = mnt.join("reports");
+    assert_eq!(run_to(&t, &out, &[]).code, 0);
+    let before = tree_hashes(&out);
+    // Fill the disk to its last few kilobytes: no second copy of the output fits.
+    let mut filler = std::fs::File::create(mnt.join("filler")).unwrap();
+    let block = vec![0u8; 4096];
+    while std::io::Write::write_all(&mut filler, &block).is_ok() {}
+    drop(filler);
+    let f = std::fs::OpenOptions::new()
+        .write(true)
+        .open(mnt.join("filler"))
+        .unwrap();
+    let len = f.metadata().unwrap().len();
+    f.set_len(len.saturating_sub(16 * 1024)).unwrap();
+    drop(f);
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(o.stderr.contains("No space left on device"), "{}", o.stderr);
+    assert!(
+        o.stderr.contains(
+            "what to do: free space on the disk that holds the output folder (or raise the \
+             quota) and run again"
+        ),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(tree_hashes(&out), before);
+    std::fs::remove_file(mnt.join("filler")).unwrap();
+    tmpfs.make_read_only();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 6, "{o:?}");
+    assert!(
+        o.stderr.contains(
+            "what to do: the output folder's file system is mounted read-only (a disk \
+             remounted read-only after errors should be checked first)"
+        ),
+        "{}",
+        o.stderr
+    );
+    assert_eq!(tree_hashes(&out), before);
+}
+
 /// A file-size limit (`ulimit -f`, as a batch system or a shared host sets one) made the
 /// kernel stop the run with SIGXFSZ in the middle of a write: no message from the tool, an exit
 /// by signal, and the staging folder left beside the output. A limit reached is now an ordinary
@@ -370,10 +426,16 @@ fn a_run_killed_between_the_renames_is_recovered() {
     let out = beside(&t, "reports");
     assert_eq!(run_to(&t, &out, &[]).code, 0);
     let parent = out.parent().unwrap().to_path_buf();
-    // Killed after the first rename: only `.reports.previous` exists.
+    // Killed after the first rename: only `.reports.previous` exists. The log says what was
+    // put back.
     std::fs::rename(&out, parent.join(".reports.previous")).unwrap();
     let o = run_to(&t, &out, &[]);
     assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr
+            .contains("was stopped (killed, or a power cut) as it put its output in place"),
+        "{o:?}"
+    );
     // Killed after the second rename, before the removal: both exist.
     let copy = parent.join(".reports.previous");
     crate::harness::copy_tree(&out, &copy);
@@ -386,6 +448,12 @@ fn a_run_killed_between_the_renames_is_recovered() {
     std::fs::write(out.join(".cohortpress-staging"), "").unwrap();
     let o = run_to(&t, &out, &[]);
     assert_eq!(o.code, 0, "{o:?}");
+    // A killed run's staging folder is not removed without a word (tryout24).
+    assert!(
+        o.stderr
+            .contains("did not finish (killed, or a power cut): its unfinished output"),
+        "{o:?}"
+    );
     no_leftovers(&parent, "reports");
     assert!(!out.join(".cohortpress-staging").exists());
     // Something foreign in the swap's way is never deleted.

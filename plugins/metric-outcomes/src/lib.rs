@@ -1527,6 +1527,15 @@ fn push_intake_flags(
     let very_low = ctx.setting_f64("very_low_intake", 800.0);
     let days = intake.len();
     let mean = intake.iter().sum::<f64>() / days.max(1) as f64;
+    // The days the log is read over, named in the message: the report's energy section gives
+    // the logged intake of the last four weeks, a few days shorter than a month, and printed
+    // 879 kcal beside this message's 877 "over 30 logged days" with nothing to tell the two
+    // apart.
+    let window = format!(
+        "from {} to {}",
+        ctx.period.from.max(profile.enrolled),
+        ctx.period.to
+    );
     let implied = implied_intake(ctx);
     // Very low subsumes low: one flag, the more serious one.
     if days >= MIN_INTAKE_DAYS && mean < very_low {
@@ -1547,7 +1556,7 @@ fn push_intake_flags(
             FlagSeverity::Clinical,
             format!(
                 "Logged intake averaged about {mean:.0} kcal a day over {days} logged \
-                 days, below {very_low:.0} kcal a day.{trend} Eating this little is normally \
+                 days {window}, below {very_low:.0} kcal a day.{trend} Eating this little is normally \
                  done only under medical supervision; please review it with a licensed \
                  clinician."
             ),
@@ -1572,7 +1581,7 @@ fn push_intake_flags(
             implied_words(i)
         ),
         Some(IntakeEvidence::LogAndTrend(t, i)) => format!(
-            "Logged intake averaged about {:.0} kcal a day over {} logged days and was below \
+            "Logged intake averaged about {:.0} kcal a day over {} logged days {window} and was below \
              {floor:.0} kcal a day, {unsupervised}, on {} of them; the weight trend does not \
              rule it out: it implies {}. If the log is complete, consider discussing it \
              with a licensed clinician.",
@@ -1582,7 +1591,7 @@ fn push_intake_flags(
             implied_words(i)
         ),
         Some(IntakeEvidence::LogAlone(t)) => format!(
-            "Logged intake averaged about {:.0} kcal a day over {} logged days and was below \
+            "Logged intake averaged about {:.0} kcal a day over {} logged days {window} and was below \
              {floor:.0} kcal a day, {unsupervised}, on {} of them; the weigh-ins give no \
              implied intake to check it against. If the log is complete, consider discussing it with a \
              licensed clinician.",

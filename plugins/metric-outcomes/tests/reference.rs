@@ -606,6 +606,35 @@ fn intake_flags() {
     assert!(run(&c, &p).flags.is_empty());
 }
 
+/// The intake flags name the days their log covers. The report's energy section gives the
+/// logged intake over the last four weeks; the clinician item gave its own figure "over 30
+/// logged days" (the period) with no dates: a fast loser's April report read 879 kcal in one
+/// place and 877 in the other, two numbers for one thing as far as a reader could tell.
+#[test]
+fn the_intake_flags_name_the_days_of_their_log() {
+    let mut c = ctx(day(0), day(29), None);
+    c.earlier
+        .insert("energy".into(), energy_output(1900.0, 1450.0, 2350.0));
+    let mut man = participant(Sex::Male, 172.7);
+    man.weights = vec![weigh(day(0), 70.0), weigh(day(29), 70.0)];
+    let from = man.profile.enrolled.max(day(0));
+    let window = format!("logged days from {from} to {}", day(29));
+    for (kcal, code) in [(1400.0, "low_intake"), (700.0, "very_low_intake")] {
+        let days: Vec<(i64, f64)> = (0..8).map(|k| (3 * k + 1, kcal)).collect();
+        let out = run(&c, &with_intake(man.clone(), &days));
+        let f = out
+            .flags
+            .iter()
+            .find(|f| f.code == code)
+            .unwrap_or_else(|| panic!("no {code}: {:?}", out.flags));
+        assert!(
+            f.message.contains(&format!("over 8 {window}")),
+            "{code}: {}",
+            f.message
+        );
+    }
+}
+
 /// `low_intake` is the food log's word only where the weight trend does not contradict it: a
 /// log below the floor that the whole 95 % interval of the implied intake puts above it is
 /// under-reporting (the sample program's SG-010 in September: a man at BMI 23.5 with a steady
@@ -657,7 +686,7 @@ fn low_intake_needs_the_weight_trend_not_to_contradict_the_log() {
     assert_eq!(f[0].0, "low_intake");
     assert!(
         f[0].1
-            .contains("averaged about 1476 kcal a day over 8 logged days")
+            .contains("averaged about 1476 kcal a day over 8 logged days from ")
             && f[0].1.contains("below 1500 kcal a day")
             && f[0].1.contains("on 6 of them")
             && f[0]

@@ -350,8 +350,9 @@ impl MetricModule for TrendModule {
 }
 
 /// Whether a weigh-in source is the person's own scale (no source given, or one naming "home"):
-/// the reference the other sources' offsets are measured against.
-fn is_home_source(source: Option<&str>) -> bool {
+/// the reference the other sources' offsets are measured against (the participant report says
+/// so of someone whose every weigh-in comes from another source).
+pub fn is_home_source(source: Option<&str>) -> bool {
     source.is_none_or(|s| s.to_ascii_lowercase().contains("home"))
 }
 
