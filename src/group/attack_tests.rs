@@ -868,6 +868,8 @@ fn week_bands_across_monthly_releases_do_not_pin_who_stopped() {
     let mut people: Vec<Person> = (0..30)
         .map(|i| {
             let mut p = person(&format!("F{i:02}"), "Kiln Row", -4.0, true, -3.0);
+            // Enrolled early enough to have every week (their enrolment dates say so).
+            p.row.weeks_in_period = Some(24);
             let last = if i < 5 { 10 } else { 24 };
             p.row.weekly_change_percent = (0..last)
                 .map(|w| (w, -0.25 * f64::from(w) - 0.01 * i as f64))
@@ -879,6 +881,8 @@ fn week_bands_across_monthly_releases_do_not_pin_who_stopped() {
     for (m, joining) in [16, 14, 9, 12].into_iter().enumerate() {
         for j in 0..joining {
             let mut p = person(&format!("N{m}{j:02}"), "Kiln Row", -1.0, true, -0.5);
+            // Enrolled three weeks before the period's end: no later week can be theirs.
+            p.row.weeks_in_period = Some(3);
             p.row.weekly_change_percent = (0..3)
                 .map(|w| (w, -0.2 * f64::from(w) - 0.01 * j as f64))
                 .collect();
@@ -2167,4 +2171,210 @@ fn a_count_printed_again_after_one_person_joined_left_or_moved_says_nothing_of_t
             .collect();
         assert_eq!(reasons.len(), 1, "{case}: {reasons:?}");
     }
+}
+
+/// A week's mean printed again after one person joined: the same mean over the same people
+/// says the newcomer has no value that week (80-person demo, September re-issued with SG-005,
+/// whose weigh-ins end in mid-June, added: the program's weeks 10 to 25 printed the same means
+/// as before, so SG-005 had stopped weighing in by week 10). The same holds for one who left.
+#[test]
+fn a_week_mean_printed_again_after_one_person_joined_says_nothing_of_them() {
+    let min = 5;
+    let mut base = cohort(24, &["Kiln Row", "Harbour Yard"], &[], 12);
+    for (i, p) in base.iter_mut().enumerate() {
+        let v = -0.5 - i as f64 / 20.0;
+        p.row.weekly_change_percent = (0..4).map(|w| (w, v * f64::from(w + 1))).collect();
+    }
+    let mut newcomer = person("P99", "Kiln Row", -4.0, true, -2.0);
+    // Stopped weighing in after week 1.
+    newcomer.row.weekly_change_percent = vec![(0, -0.8), (1, -1.7)];
+    let mut joined = base.clone();
+    joined.push(newcomer);
+    let left: Vec<Person> = joined.iter().filter(|p| p.name != "P99").cloned().collect();
+    let weeks_attack = |with: &Release, without: &Release| {
+        let (sw, so) = (
+            sections_by_label(&with.report),
+            sections_by_label(&without.report),
+        );
+        let mut found = Vec::new();
+        for label in ["Whole program", "Kiln Row"] {
+            let means = |s: &Value| -> BTreeMap<u64, f64> {
+                s["stats"]["trajectory"]
+                    .as_array()
+                    .into_iter()
+                    .flatten()
+                    .filter_map(|w| {
+                        Some((w["week"].as_u64()?, w["mean_percent"]["value"].as_f64()?))
+                    })
+                    .collect()
+            };
+            let (a, b) = (means(&sw[label]), means(&so[label]));
+            for (w, m) in &a {
+                if let Some(o) = b.get(w) {
+                    found.push(format!(
+                        "{label} week {w}: {m} with P99, {o} without: P99 {}",
+                        if m == o {
+                            "has no value"
+                        } else {
+                            "has a value"
+                        }
+                    ));
+                }
+            }
+        }
+        found
+    };
+    for (case, months) in [
+        ("join", [base.clone(), joined.clone()]),
+        ("leave", [joined, left]),
+    ] {
+        let pair = |rel: &[Release]| {
+            if case == "join" {
+                weeks_attack(&rel[1], &rel[0])
+            } else {
+                weeks_attack(&rel[0], &rel[1])
+            }
+        };
+        let open = unprotected(&months, min);
+        assert!(
+            pair(&open).iter().any(|f| f.contains("no value")),
+            "{case}: the attack is real: {:?}",
+            pair(&open)
+        );
+        let rel = publish_in_order(&months, min);
+        assert_eq!(pair(&rel), Vec::<String>::new(), "{case}");
+    }
+}
+
+/// The same when nobody joins or leaves: one person enrolled late reaches a week between two
+/// monthly releases (their enrolment date, which the reader knows, says they could now have a
+/// value in it) but stopped weighing in before it. The week's mean printed again, the same,
+/// would say they have none; withheld, whatever they did. A week they could have in both
+/// releases is printed in both.
+#[test]
+fn a_week_mean_printed_again_after_one_person_could_reach_it_says_nothing_of_them() {
+    let min = 5;
+    let mut base = cohort(24, &["Kiln Row", "Harbour Yard"], &[], 13);
+    for (i, p) in base.iter_mut().enumerate() {
+        let v = -0.5 - i as f64 / 20.0;
+        p.row.weeks_in_period = Some(10);
+        p.row.weekly_change_percent = (0..6).map(|w| (w, v * f64::from(w + 1))).collect();
+    }
+    let mut late = person("P99", "Kiln Row", -4.0, true, -2.0);
+    late.row.weekly_change_percent = vec![(0, -0.8), (1, -1.7)];
+    let month = |reach: u32| {
+        let mut people = base.clone();
+        let mut p = late.clone();
+        p.row.weeks_in_period = Some(reach);
+        people.push(p);
+        people
+    };
+    let months = [month(2), month(6)];
+    let means = |rel: &Release, label: &str| -> BTreeMap<u64, f64> {
+        sections_by_label(&rel.report)[label]["stats"]["trajectory"]
+            .as_array()
+            .into_iter()
+            .flatten()
+            .filter_map(|w| Some((w["week"].as_u64()?, w["mean_percent"]["value"].as_f64()?)))
+            .collect()
+    };
+    let same = |rel: &[Release]| -> Vec<String> {
+        let mut found = Vec::new();
+        for label in ["Whole program", "Kiln Row"] {
+            let (a, b) = (means(&rel[0], label), means(&rel[1], label));
+            for (w, m) in &a {
+                if (2..6).contains(w) && b.get(w) == Some(m) {
+                    found.push(format!("{label} week {w}: {m} again: P99 has no value"));
+                }
+            }
+        }
+        found
+    };
+    let open = unprotected(&months, min);
+    assert!(!same(&open).is_empty(), "the attack is real");
+    let rel = publish_in_order(&months, min);
+    assert_eq!(same(&rel), Vec::<String>::new());
+    // Week 1: P99 could have it in both months (and has): printed in both, the same.
+    for label in ["Whole program", "Kiln Row"] {
+        let (a, b) = (means(&rel[0], label), means(&rel[1], label));
+        assert!(
+            a.contains_key(&1) && b.get(&1) == a.get(&1),
+            "{label}: {a:?} {b:?}"
+        );
+    }
+}
+
+/// Which section's week mean the split's rule withholds must not depend on who has a value.
+/// Three banded sites: Aspen 16, Birch 15, Cedar 14 started; the first release withholds
+/// Cedar's means of weeks 9–12. In the second, three late enrolees at Cedar (they cannot reach
+/// week 3) hide its number started, and one Birch participant who had enrolled too late to
+/// reach week 9 now can: Birch's weeks 9–12 are withheld for that reason. Whether that person
+/// weighs in or not, the second release must print the same means (taking Birch, whose week's
+/// people changed only when they weighed in, printed Cedar's means then and withheld them
+/// otherwise).
+#[test]
+fn the_week_mean_withheld_beside_a_newcomer_to_the_week_does_not_tell_whether_they_weigh_in() {
+    let min = 11;
+    let mut base = three_sites_some_stopped();
+    for p in base.iter_mut() {
+        let site = p.row.groups["site"].clone();
+        let to = match site.as_str() {
+            "Aspen" => "Cedar",
+            "Cedar" => "Aspen",
+            s => s,
+        };
+        p.row.groups.insert("site".into(), to.into());
+        p.row.weeks_in_period = Some(12);
+    }
+    // A Birch participant weighed every week (not one of the first three, who stop).
+    let late = base
+        .iter()
+        .position(|p| p.row.groups["site"] == "Birch" && p.row.weekly_change_percent.len() == 12)
+        .expect("a Birch participant weighed every week");
+    let mut first = base.clone();
+    first[late].row.weeks_in_period = Some(8);
+    first[late].row.weekly_change_percent.truncate(8);
+    let second = |weighs_in: bool| {
+        let mut people = base.clone();
+        if !weighs_in {
+            people[late].row.weekly_change_percent.truncate(8);
+        }
+        for i in 45..48 {
+            let mut p = person(&format!("P{i:02}"), "Cedar", -1.0, true, -1.0);
+            p.row.weeks_in_period = Some(2);
+            p.row.weekly_change_percent = (0..2).map(|w| (w, -0.3 * f64::from(w + 1))).collect();
+            people.push(p);
+        }
+        people
+    };
+    let printed = |rel: &Release| -> BTreeMap<(String, u64), bool> {
+        sections_by_label(&rel.report)
+            .into_iter()
+            .flat_map(|(label, s)| {
+                s["stats"]["trajectory"]
+                    .as_array()
+                    .cloned()
+                    .unwrap_or_default()
+                    .into_iter()
+                    .filter_map(move |w| {
+                        let week = w["week"].as_u64()?;
+                        Some((
+                            (label.clone(), week),
+                            w["mean_percent"].get("value").is_some(),
+                        ))
+                    })
+            })
+            .collect()
+    };
+    let with = publish_in_order(&[first.clone(), second(true)], min);
+    let without = publish_in_order(&[first, second(false)], min);
+    let before = printed(&with[0]);
+    assert_eq!(
+        before.get(&("Cedar".to_string(), 9)),
+        Some(&false),
+        "the first release withholds Cedar's week 10: {before:?}"
+    );
+    let (a, b) = (printed(&with[1]), printed(&without[1]));
+    let differ: Vec<_> = a.iter().filter(|(k, v)| b.get(*k) != Some(*v)).collect();
+    assert!(differ.is_empty(), "the printed means tell: {differ:?}");
 }

@@ -69,6 +69,16 @@ pub struct ReleaseRecord {
     /// See `scopes`.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub count_scopes: Vec<Vec<usize>>,
+    /// For each sum (aligned with `sums`), the figure it was printed as ("mean change in week
+    /// 3", whatever the section). Empty in older ledgers.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub sum_labels: Vec<String>,
+    /// For each sum (aligned with `sums`), the indices in `scopes` of the people who could
+    /// have had a value in it (see [`super::History::sum_scopes`]). Empty in older ledgers:
+    /// their sums are audited as sums only, and a mean printed again after who could have a
+    /// value in it changed is not compared with them.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub sum_scopes: Vec<Vec<usize>>,
     /// A keyed hash of a fixed text under the key the tokens were made with (see
     /// [`key_check`]): tells a key that does not belong to the ledger. Empty in older ledgers.
     #[serde(default)]
@@ -105,6 +115,8 @@ impl ReleaseRecord {
             orders,
             scopes,
             count_scopes,
+            sum_labels,
+            sum_scopes,
             key_check,
             figures,
             withdrawals: _,
@@ -119,6 +131,8 @@ impl ReleaseRecord {
             && *orders == other.orders
             && *scopes == other.scopes
             && *count_scopes == other.count_scopes
+            && *sum_labels == other.sum_labels
+            && *sum_scopes == other.sum_scopes
             && *key_check == other.key_check
             && *figures == other.figures
     }
@@ -686,6 +700,8 @@ impl Ledger {
                 && r.orders == published.orders
                 && r.scopes == published.scopes
                 && r.count_scopes == published.count_scopes
+                && r.sum_labels == published.sum_labels
+                && r.sum_scopes == published.sum_scopes
         })
     }
 
@@ -712,20 +728,29 @@ impl Ledger {
             } else {
                 vec![String::new(); n]
             };
-            let (scopes, count_scopes) = if r.count_scopes.len() == n
-                && r.count_scopes.iter().flatten().all(|&i| i < r.scopes.len())
-            {
-                (r.scopes.clone(), r.count_scopes.clone())
+            let in_scopes = |ix: &Vec<Vec<usize>>| ix.iter().flatten().all(|&i| i < r.scopes.len());
+            let count_scopes = if r.count_scopes.len() == n && in_scopes(&r.count_scopes) {
+                r.count_scopes.clone()
             } else {
-                (Vec::new(), vec![Vec::new(); n])
+                vec![Vec::new(); n]
             };
+            // Sums of a ledger written before their sections were kept: no label, no people.
+            let m = r.sums.len();
+            let (sum_labels, sum_scopes) =
+                if r.sum_labels.len() == m && r.sum_scopes.len() == m && in_scopes(&r.sum_scopes) {
+                    (r.sum_labels.clone(), r.sum_scopes.clone())
+                } else {
+                    (vec![String::new(); m], vec![Vec::new(); m])
+                };
             h.add(Published {
                 sums: r.sums.clone(),
                 orders: r.orders.clone(),
                 counts: r.counts.clone(),
                 count_labels: labels,
-                scopes,
+                scopes: r.scopes.clone(),
                 count_scopes,
+                sum_labels,
+                sum_scopes,
             });
         }
         h
@@ -896,6 +921,8 @@ pub fn release_record(
         orders: published.orders,
         scopes: published.scopes,
         count_scopes: published.count_scopes,
+        sum_labels: published.sum_labels,
+        sum_scopes: published.sum_scopes,
         key_check: String::new(),
         figures,
         withdrawals: None,

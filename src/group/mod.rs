@@ -60,6 +60,15 @@ pub struct ParticipantSummary {
     pub last_observed_kg: Option<f64>,
     /// (week index since enrolment, % change of trend weight vs baseline), for trajectories.
     pub weekly_change_percent: Vec<(u32, f64)>,
+    /// How many weeks since enrolment end in the period (week w ends on enrolment + 7w + 6
+    /// days; from the enrolment date and the period's end alone, which a reader may know): the
+    /// person cannot have a trajectory value of a later week. `None`: not known (taken as able
+    /// to have a value in every week).
+    pub weeks_in_period: Option<u32>,
+    /// For someone who withdrew by the period's end, the week since enrolment of their
+    /// withdrawal day (`None` otherwise): no later week of theirs is counted when their data
+    /// stops there. See [`summary`]'s audit of figures printed again.
+    pub withdrew_week: Option<u32>,
     /// Mean activity minutes per week.
     pub activity_minutes_per_week: Option<f64>,
     /// Mean weigh-ins per week.
@@ -102,13 +111,34 @@ pub struct History {
     /// printed again over the same people, in a section that has since gained or lost a few
     /// people, says that none of them is counted in it.
     pub count_scopes: Vec<Vec<usize>>,
+    /// Aligned with `sums`: the figure each sum was printed as (e.g. "mean change in week 3",
+    /// whatever the section), empty for a sum of an older ledger.
+    pub sum_labels: Vec<String>,
+    /// Aligned with `sums`: the people who could have had a value in it when it was printed
+    /// (its section's enrolled people, those of them with that week in the period, and the
+    /// same without those who had withdrawn by then), as indices into `scopes`; empty for a
+    /// sum of an older ledger. A mean printed again after that set changed by a few people
+    /// would say whether they have a value in it.
+    pub sum_scopes: Vec<Vec<usize>>,
 }
 
 impl History {
     /// Adds what a release published (its counts, sums, medians and their sections' people).
     pub fn add(&mut self, published: Published) {
         let offset = self.scopes.len();
+        let shift = |ix: Vec<Vec<usize>>| -> Vec<Vec<usize>> {
+            ix.into_iter()
+                .map(|ix| ix.into_iter().map(|i| i + offset).collect())
+                .collect()
+        };
+        // Older entries without names or sections stay aligned.
+        self.sum_labels.resize(self.sums.len(), String::new());
+        self.sum_scopes.resize(self.sums.len(), Vec::new());
+        self.sum_labels.extend(published.sum_labels);
+        self.sum_scopes.extend(shift(published.sum_scopes));
         self.sums.extend(published.sums);
+        self.sum_labels.resize(self.sums.len(), String::new());
+        self.sum_scopes.resize(self.sums.len(), Vec::new());
         self.orders.extend(published.orders);
         // Older entries without names or sections stay aligned.
         self.count_labels.resize(self.counts.len(), String::new());
@@ -116,12 +146,7 @@ impl History {
         self.counts.extend(published.counts);
         self.count_labels.extend(published.count_labels);
         self.scopes.extend(published.scopes);
-        self.count_scopes.extend(
-            published
-                .count_scopes
-                .into_iter()
-                .map(|ix| ix.into_iter().map(|i| i + offset).collect()),
-        );
+        self.count_scopes.extend(shift(published.count_scopes));
         self.count_scopes.resize(self.counts.len(), Vec::new());
     }
 }
@@ -137,11 +162,17 @@ pub struct Published {
     pub counts: Vec<Vec<u64>>,
     /// The plain name of each of `counts` (aligned).
     pub count_labels: Vec<String>,
-    /// The enrolled and the started people of every section a count was printed in.
+    /// The enrolled and the started people of every section a count was printed in, and who
+    /// could have had a value in each sum.
     pub scopes: Vec<Vec<u64>>,
     /// Aligned with `counts`: its section's enrolled and started people, as indices into
     /// `scopes`.
     pub count_scopes: Vec<Vec<usize>>,
+    /// Aligned with `sums`: the figure each was printed as ([`History::sum_labels`]).
+    pub sum_labels: Vec<String>,
+    /// Aligned with `sums`: who could have had a value in it ([`History::sum_scopes`]), as
+    /// indices into `scopes`.
+    pub sum_scopes: Vec<Vec<usize>>,
 }
 
 /// Options of the group step (from the program's report and privacy settings).

@@ -664,11 +664,28 @@ struct Raw {
     locf_only: Vec<(usize, f64, f64)>,
     /// Person of each week value (aligned with `weeks`).
     week_idx: BTreeMap<u32, Vec<usize>>,
+    /// Every enrolled person with how many weeks since enrolment end in the period, and as
+    /// many less those after their withdrawal (`u32::MAX` when not known): who could have a
+    /// value in a week, by dates alone.
+    reach: Vec<(usize, u32, u32)>,
 }
 
 impl Raw {
     fn count(&self, k: Kind) -> u64 {
         self.counts.get(&k).copied().unwrap_or(0)
+    }
+
+    /// Who could have a value in week `w`, by the dates a reader may know (person tokens):
+    /// those with the week in the period, and of them those who had not withdrawn before it.
+    fn week_open(&self, w: u32, tokens: &[u64]) -> [BTreeSet<u64>; 2] {
+        let pick = |kept: bool| {
+            self.reach
+                .iter()
+                .filter(|&&(_, open, left)| if kept { left > w } else { open > w })
+                .map(|&(i, _, _)| tokens[i])
+                .collect()
+        };
+        [pick(false), pick(true)]
     }
 
     /// The person tokens (`tokens`, one per enrolled row) of those with a value in week `w`.
@@ -700,6 +717,11 @@ fn raw_section(rows: &[&ParticipantSummary], index: &RowIndex) -> Raw {
     for r in rows {
         let who = index[&(*r as *const ParticipantSummary)];
         let mut inc = |k: Kind| inc(k, who);
+        let open = r.weeks_in_period.unwrap_or(u32::MAX);
+        let left = r
+            .withdrew_week
+            .map_or(open, |w| open.min(w.saturating_add(1)));
+        raw.reach.push((who, open, left));
         // People, like every other count: the sponsor reads it as people, and the audit
         // protects it as the set of people it is.
         if r.clinical_flags > 0 {
@@ -865,6 +887,37 @@ impl Draft {
 }
 
 const NOT_RECORDED: &str = "(not recorded)";
+
+/// Whether a section's people now (`now`, in the order of `prior`'s sets) differ by 1 … min − 1
+/// from those an earlier figure was printed with (`prior`: indices into `history.scopes`; none
+/// for a figure of an older ledger).
+fn moved(prior: &[usize], now: &[BTreeSet<u64>], history: &History, min: u32) -> bool {
+    prior.iter().zip(now).any(|(&i, now)| {
+        let Some(then) = history.scopes.get(i) else {
+            return false;
+        };
+        let gone = then.iter().filter(|p| !now.contains(p)).count();
+        let came = now
+            .iter()
+            .filter(|p| then.binary_search(p).is_err())
+            .count();
+        let diff = gone + came;
+        diff > 0 && diff < min as usize
+    })
+}
+
+/// The index of a set of people in `published.scopes`, added once.
+fn intern(
+    published: &mut Published,
+    scope_at: &mut HashMap<Vec<u64>, usize>,
+    people: BTreeSet<u64>,
+) -> usize {
+    let people: Vec<u64> = people.into_iter().collect();
+    *scope_at.entry(people.clone()).or_insert_with(|| {
+        published.scopes.push(people);
+        published.scopes.len() - 1
+    })
+}
 
 fn withheld_note(min: u32) -> String {
     format!("fewer than {min} participants — withheld")
@@ -1120,8 +1173,33 @@ pub(super) fn build(
     // Where each shown section's week sum went in `published.sums`, by (section, week): a
     // week mean the weighted-mean audit withholds afterwards is taken out again.
     let mut week_sum_at: HashMap<(*const Draft, u32), usize> = HashMap::new();
+    // Where each set of people recorded with a count or a sum is in `published.scopes`.
+    let mut scope_at: HashMap<Vec<u64>, usize> = HashMap::new();
+    // Week means withheld because who could have a value in them changed by a few people
+    // since a release printed them (see the sum audit below).
+    let mut forced_weeks: HashMap<*const Draft, BTreeSet<u32>> = HashMap::new();
     // The people of every sum earlier releases printed (the ledger's), for
     // [`audit_week_means`]: a section's week whose people were summed before may be known.
+    // The week means earlier releases printed, each with who could have had a value in it
+    // (by dates): a section's week is taken as printed before when one of the same week was
+    // printed over the same such people, a test that rests on nothing the report hides (who
+    // has a value does). Sums of an older ledger carry no such people; while it holds any, a
+    // week whose people, as they are, were summed before counts as printed too.
+    let weeks_printed: HashSet<(String, Vec<u64>, Vec<u64>)> = history
+        .sum_labels
+        .iter()
+        .zip(&history.sum_scopes)
+        .filter_map(|(label, ix)| match ix.as_slice() {
+            [a, b] => Some((
+                label.clone(),
+                history.scopes.get(*a)?.clone(),
+                history.scopes.get(*b)?.clone(),
+            )),
+            _ => None,
+        })
+        .collect();
+    let legacy = history.sum_scopes.len() < history.sums.len()
+        || history.sum_scopes.iter().any(Vec::is_empty);
     let printed_before: HashSet<BTreeSet<u64>> = history
         .sums
         .iter()
@@ -1227,21 +1305,9 @@ pub(super) fn build(
                             members_of(raw, Kind::Enrolled),
                             members_of(raw, Kind::Started),
                         ];
-                        scopes_of_prior.get(&set).is_some_and(|all| {
-                            all.iter().any(|ix| {
-                                ix.iter().zip(&now).any(|(&i, now)| {
-                                    let diff = history.scopes[i]
-                                        .iter()
-                                        .filter(|p| !now.contains(p))
-                                        .count()
-                                        + now
-                                            .iter()
-                                            .filter(|p| history.scopes[i].binary_search(p).is_err())
-                                            .count();
-                                    diff > 0 && diff < min as usize
-                                })
-                            })
-                        })
+                        scopes_of_prior
+                            .get(&set)
+                            .is_some_and(|all| all.iter().any(|ix| moved(ix, &now, history, min)))
                     };
                     let repeat = prior_counts.contains(&set);
                     // One note for both reasons: a note of its own would say that the count is
@@ -1460,8 +1526,16 @@ pub(super) fn build(
                 priority: 0,
             });
         }
-        // (section, line, label, its (token, atom) changes)
-        type Owner = (*const Draft, Line, String, Vec<(u64, u64)>);
+        // Who could have had a value in each week mean printed before, by the mean's figure
+        // (its week), whatever the section.
+        let mut weeks_before: HashMap<&str, Vec<&Vec<usize>>> = HashMap::new();
+        for (label, ix) in history.sum_labels.iter().zip(&history.sum_scopes) {
+            if !ix.is_empty() {
+                weeks_before.entry(label.as_str()).or_default().push(ix);
+            }
+        }
+        // (section, line, label, its (token, atom) changes, who could have had a value in it)
+        type Owner = (*const Draft, Line, String, Vec<(u64, u64)>, Vec<usize>);
         let mut owners: Vec<Owner> = Vec::new();
         for d in drafts_of() {
             let raw = d.raw.as_ref().expect("filtered");
@@ -1474,19 +1548,27 @@ pub(super) fn build(
                 .map(|(&i, (&p, &k))| (tokens[i], atom(tokens[i], "change", p, k)))
                 .collect();
             type Changes = Vec<(u64, u64)>;
-            let mut lines: Vec<(Line, u32, Changes)> = Vec::new();
+            let mut lines: Vec<(Line, u32, Changes, Vec<usize>)> = Vec::new();
+            let here = vec![
+                intern(
+                    &mut published,
+                    &mut scope_at,
+                    members_of(raw, Kind::Enrolled),
+                ),
+                intern(&mut published, &mut scope_at, members_of(raw, Kind::Active)),
+            ];
             if shown(Kind::Started) {
-                lines.push((Line::Bocf, 6 + base, changes.clone()));
+                lines.push((Line::Bocf, 6 + base, changes.clone(), here.clone()));
                 let mut locf = changes.clone();
                 locf.extend(
                     raw.locf_only
                         .iter()
                         .map(|&(i, p, k)| (tokens[i], atom(tokens[i], "change", p, k))),
                 );
-                lines.push((Line::Locf, base, locf));
+                lines.push((Line::Locf, base, locf, here.clone()));
             }
             if shown(Kind::WithOutcome) {
-                lines.push((Line::Completers, 2 + base, changes));
+                lines.push((Line::Completers, 2 + base, changes, here.clone()));
             }
             let bounds = &week_bounds[&(d as *const Draft)];
             for (wi, &w) in weeks.iter().enumerate() {
@@ -1494,13 +1576,33 @@ pub(super) fn build(
                     continue;
                 };
                 if week_count(idx.len() as u64, bounds[wi], min).1 {
+                    // A week mean printed before over people who could have a value that week
+                    // differing from this section's by 1 … min − 1 (someone joined, left, moved
+                    // or reached the week since): printed again it would say whether they have
+                    // one (the same mean: none). Withheld, whatever their data, so that the
+                    // choice tells nothing either ([`audit_week_means`] keeps the split's own
+                    // choice beside it).
+                    let open = raw.week_open(w, &tokens);
+                    let name = Line::Week(w).name();
+                    if weeks_before
+                        .get(name.as_str())
+                        .is_some_and(|all| all.iter().any(|ix| moved(ix, &open, history, min)))
+                    {
+                        forced_weeks.entry(d as *const Draft).or_default().insert(w);
+                        continue;
+                    }
+                    let [open, kept] = open;
+                    let scopes = vec![
+                        intern(&mut published, &mut scope_at, open),
+                        intern(&mut published, &mut scope_at, kept),
+                    ];
                     let vals = &raw.weeks[&w];
                     let atoms = idx
                         .iter()
                         .zip(vals)
                         .map(|(&i, &v)| (tokens[i], atom(tokens[i], "week", f64::from(w), v)))
                         .collect();
-                    lines.push((Line::Week(w), 4 + base, atoms));
+                    lines.push((Line::Week(w), 4 + base, atoms, scopes));
                 }
             }
             for (i, values) in raw.adherence.iter().enumerate() {
@@ -1512,10 +1614,10 @@ pub(super) fn build(
                         .zip(values)
                         .map(|(&p, &v)| (tokens[p], atom(tokens[p], ADHERENCE_TAGS[i], v, 0.0)))
                         .collect();
-                    lines.push((Line::Adherence(i), 1 + base, atoms));
+                    lines.push((Line::Adherence(i), 1 + base, atoms, Vec::new()));
                 }
             }
-            for (line, priority, atoms) in lines {
+            for (line, priority, atoms, scopes) in lines {
                 for &(p, a) in &atoms {
                     person_of.insert(a, p);
                 }
@@ -1530,7 +1632,7 @@ pub(super) fn build(
                     removable: !repeat,
                     priority,
                 });
-                owners.push((d as *const Draft, line, d.label.clone(), atoms));
+                owners.push((d as *const Draft, line, d.label.clone(), atoms, scopes));
             }
         }
         let keep = audit::protect(
@@ -1539,7 +1641,7 @@ pub(super) fn build(
             min as usize,
         );
         let first_new = history.sums.len() + history.orders.len();
-        for (j, (d, line, label, atoms)) in owners.into_iter().enumerate() {
+        for (j, (d, line, label, atoms, scopes)) in owners.into_iter().enumerate() {
             if keep[first_new + j] {
                 if let Line::Adherence(_) = line {
                     published.orders.push(atoms);
@@ -1548,6 +1650,8 @@ pub(super) fn build(
                         week_sum_at.insert((d, w), published.sums.len());
                     }
                     published.sums.push(atoms);
+                    published.sum_labels.push(line.name());
+                    published.sum_scopes.push(scopes);
                 }
             } else {
                 let rule = if let Line::Adherence(_) = line {
@@ -1570,17 +1674,20 @@ pub(super) fn build(
                 withdrawn.entry(d).or_default().insert(line);
             }
         }
-        let mut scope_at: HashMap<Vec<u64>, usize> = HashMap::new();
         for d in drafts_of() {
             let raw = d.raw.as_ref().expect("filtered");
-            let mut scope = |k: Kind| {
-                let people: Vec<u64> = members_of(raw, k).into_iter().collect();
-                *scope_at.entry(people.clone()).or_insert_with(|| {
-                    published.scopes.push(people);
-                    published.scopes.len() - 1
-                })
-            };
-            let here = vec![scope(Kind::Enrolled), scope(Kind::Started)];
+            let here = vec![
+                intern(
+                    &mut published,
+                    &mut scope_at,
+                    members_of(raw, Kind::Enrolled),
+                ),
+                intern(
+                    &mut published,
+                    &mut scope_at,
+                    members_of(raw, Kind::Started),
+                ),
+            ];
             for (&k, &c) in &d.cells {
                 let set = members_of(raw, k);
                 if !table.is_suppressed(c) && !set.is_empty() {
@@ -1601,6 +1708,7 @@ pub(super) fn build(
         let mut add = |d: &Draft, sections: &mut Vec<WeekSection>| -> Option<usize> {
             let raw = d.raw.as_ref().filter(|_| d.shown())?;
             let lines = withdrawn.get(&(d as *const Draft));
+            let forced = forced_weeks.get(&(d as *const Draft));
             let started = d
                 .cells
                 .get(&Kind::Started)
@@ -1623,13 +1731,29 @@ pub(super) fn build(
                     .collect(),
                 withdrawn: weeks
                     .iter()
-                    .map(|&w| lines.is_some_and(|l| l.contains(&Line::Week(w))))
+                    .map(|&w| {
+                        lines.is_some_and(|l| l.contains(&Line::Week(w)))
+                            || forced.is_some_and(|f| f.contains(&w))
+                    })
                     .collect(),
+                forced: weeks
+                    .iter()
+                    .map(|&w| forced.is_some_and(|f| f.contains(&w)))
+                    .collect(),
+
                 known: weeks
                     .iter()
-                    .map(|w| {
-                        let people = raw.week_people(*w, &tokens);
-                        !people.is_empty() && printed_before.contains(&people)
+                    .map(|&w| {
+                        let [open, kept] = raw.week_open(w, &tokens);
+                        let key = (
+                            Line::Week(w).name(),
+                            open.into_iter().collect(),
+                            kept.into_iter().collect(),
+                        );
+                        weeks_printed.contains(&key) || {
+                            let people = raw.week_people(w, &tokens);
+                            legacy && !people.is_empty() && printed_before.contains(&people)
+                        }
                     })
                     .collect(),
                 mean: weeks
@@ -1686,12 +1810,45 @@ pub(super) fn build(
         .filter_map(|key| week_sum_at.get(key).copied())
         .collect();
     if !unpublished.is_empty() {
-        published.sums = std::mem::take(&mut published.sums)
-            .into_iter()
-            .enumerate()
-            .filter(|(i, _)| !unpublished.contains(i))
-            .map(|(_, s)| s)
-            .collect();
+        fn drop_at<T>(v: &mut Vec<T>, gone: &BTreeSet<usize>) {
+            *v = std::mem::take(v)
+                .into_iter()
+                .enumerate()
+                .filter(|(i, _)| !gone.contains(i))
+                .map(|(_, s)| s)
+                .collect();
+        }
+        drop_at(&mut published.sums, &unpublished);
+        drop_at(&mut published.sum_labels, &unpublished);
+        drop_at(&mut published.sum_scopes, &unpublished);
+    }
+    let mut forced_list: Vec<(*const Draft, u32)> = forced_weeks
+        .iter()
+        .flat_map(|(&d, ws)| ws.iter().map(move |&w| (d, w)))
+        .collect();
+    forced_list.sort_by_key(|&(d, w)| {
+        let at = std::iter::once(&program)
+            .chain(splits.iter().flat_map(|(_, drafts, _)| drafts.iter()))
+            .position(|x| std::ptr::eq(x, d));
+        (at, w)
+    });
+    for (d, w) in forced_list {
+        let draft = std::iter::once(&program)
+            .chain(splits.iter().flat_map(|(_, drafts, _)| drafts.iter()))
+            .find(|x| std::ptr::eq(*x, d))
+            .expect("a shown section");
+        if withdrawn.entry(d).or_default().insert(Line::Week(w)) {
+            audit_notes.push(AuditNote {
+                section: draft.label.clone(),
+                figure: Line::Week(w).name(),
+                rule: format!(
+                    "Not shown, because the people who could have a value this week (by when \
+                     they enrolled and left, and where) differ by fewer than {min} from those of \
+                     an earlier report that showed it: shown again, it would tell whether they \
+                     have one"
+                ),
+            });
+        }
     }
     for &(d, w) in &mean_withheld {
         let draft = std::iter::once(&program)
@@ -1826,12 +1983,19 @@ struct WeekSection {
     enrolled: u64,
     /// True n of each week (in the order of the report's weeks).
     n: Vec<u64>,
-    /// Whether the sum audit withheld each week's mean.
+    /// Whether the sum audit withheld each week's mean, or the rule on week means printed
+    /// again after who could have a value in them changed (`forced`).
     withdrawn: Vec<bool>,
+    /// Whether each week's mean is withheld because who could have a value in it changed by a
+    /// few people since a release printed it. `mean` then holds it as if printed: the split's
+    /// rule in [`audit_week_means`] applies as without it, and takes another section.
+    forced: Vec<bool>,
     /// Each week's mean as printed (rounded to [`MEAN_STEP`]), `None` where it is not printed.
     mean: Vec<Option<f64>>,
-    /// Whether an earlier release printed a sum over exactly each week's people (this week's
-    /// mean, or another figure of the same people): its mean may be known to the reader.
+    /// Whether an earlier release printed this week's mean over the same people who could
+    /// have a value in it (by dates; with an older ledger also: a sum over exactly the week's
+    /// people): its mean may be known to the reader. Who has a value is not used: the choice
+    /// of the section withheld would tell it.
     known: Vec<bool>,
 }
 
@@ -1976,11 +2140,14 @@ fn audit_week_bands(
 /// The section withheld must stay withheld in later releases, whose figures for a past week
 /// are those of the same people: three late enrolees at the smallest site made another the
 /// smallest, and the two releases together printed every site's mean of weeks 9–12 (Aspen 11
-/// or 12 of 14 again). So a section whose week's people an earlier release summed (the
-/// ledger's sums: that week's mean, or any figure of exactly those people) is withheld only
-/// when every section's were; among the others, the one with the fewest people started as
-/// printed (a hidden number started is not used: the choice would tell which hidden count is
-/// the smaller). A withheld mean is not recorded in the ledger as published.
+/// or 12 of 14 again). So a section whose week's mean an earlier release printed over the same
+/// people who could have a value in it (by enrolment and withdrawal dates, the ledger's
+/// `sum_scopes`) is withheld only when every section's were; among the others, the one with the
+/// fewest people started as printed (a hidden number started is not used: the choice would tell
+/// which hidden count is the smaller). Who has a value that week is not used either: beside a
+/// section withheld because a joiner could have a value ([`moved`]), taking the section whose
+/// week's people changed told whether the joiner has one. A section withheld by that rule is
+/// never the one taken. A withheld mean is not recorded in the ledger as published.
 fn audit_week_means(
     sections: &[WeekSection],
     parts: &[Vec<usize>],
@@ -2013,15 +2180,20 @@ fn audit_week_means(
             // A section whose week an earlier release may have printed is not the one
             // withheld while another will do: withholding it now and printing, beside it, a
             // mean withheld before would give the reader every mean of the week.
+            // A section withheld by the rule on means printed again is not the one taken: it
+            // may be withheld only this time, and the section the split's rule withheld before
+            // must stay withheld (the split's rule applies as if it were printed).
             let take = with
                 .iter()
                 .copied()
+                .filter(|&i| !sections[i].forced[w])
                 .min_by_key(|&i| {
                     let s = &sections[i];
                     (s.known[w], s.started.unwrap_or(u64::MAX), i)
-                })
-                .expect("not empty");
-            out.push((take, w));
+                });
+            if let Some(take) = take {
+                out.push((take, w));
+            }
         }
     }
     out

@@ -236,6 +236,8 @@ fn generated(seed: u64, n: usize, site_weights: &[f64]) -> Vec<ParticipantSummar
                 weekly_change_percent: (0..weeks)
                     .map(|w| (w, change * f64::from(w) / 12.0))
                     .collect(),
+                weeks_in_period: None,
+                withdrew_week: None,
                 activity_minutes_per_week: (g.next() < 0.8).then(|| 300.0 * g.next()),
                 weigh_ins_per_week: (g.next() < 0.9).then(|| 7.0 * g.next()),
                 food_log_days_per_week: (g.next() < 0.6).then(|| 7.0 * g.next()),
@@ -1124,6 +1126,8 @@ fn gradual_attrition_leaves_the_headline_figures_shown() {
                 weekly_change_percent: (0..last_week)
                     .map(|w| (w, change * f64::from(w) / 26.0))
                     .collect(),
+                weeks_in_period: None,
+                withdrew_week: None,
                 activity_minutes_per_week: Some(100.0 + 200.0 * g.next()),
                 weigh_ins_per_week: Some(1.0 + 6.0 * g.next()),
                 food_log_days_per_week: Some(7.0 * g.next()),
@@ -1196,6 +1200,8 @@ fn clean_program(n: usize, sites: usize, seed: u64) -> Vec<ParticipantSummary> {
                 outcome_kg: recent.then(|| baseline * (1.0 + change / 100.0)),
                 last_observed_kg: Some(baseline * (1.0 + change / 150.0)),
                 weekly_change_percent: (0..20).map(|w| (w, change * f64::from(w) / 20.0)).collect(),
+                weeks_in_period: None,
+                withdrew_week: None,
                 activity_minutes_per_week: (!withdrawn).then(|| 100.0 + 200.0 * g.next()),
                 weigh_ins_per_week: (!withdrawn).then(|| 1.0 + 6.0 * g.next()),
                 food_log_days_per_week: (!withdrawn).then(|| 7.0 * g.next()),

@@ -1140,6 +1140,16 @@ pub fn summary_row(
             .collect(),
         _ => Vec::new(),
     };
+    // Week w's value is the trend on its last day, enrolment + 7w + 6 (the outcomes module's
+    // trajectory): how many weeks end in the period, and the week of the withdrawal day (0 for
+    // a day before enrolment), from dates a reader of the group report may know.
+    let weeks_in_period =
+        Some((((period.to - data.profile.enrolled).num_days() + 1).max(0) / 7) as u32);
+    let withdrew_week = data
+        .profile
+        .withdrew
+        .filter(|&w| w <= period.to)
+        .map(|w| ((w - data.profile.enrolled).num_days().max(0) / 7) as u32);
     let in_plateau = trend.and_then(|t| match t.status {
         Status::Plateau => Some(true),
         Status::InsufficientData | Status::Unclear => None,
@@ -1160,6 +1170,8 @@ pub fn summary_row(
         outcome_kg,
         last_observed_kg,
         weekly_change_percent,
+        weeks_in_period,
+        withdrew_week,
         activity_minutes_per_week: adherence.and_then(|a| a.activity_minutes_per_week),
         weigh_ins_per_week: adherence.and_then(|a| a.weigh_ins_per_week),
         food_log_days_per_week: adherence.and_then(|a| a.food_log_days_per_week),

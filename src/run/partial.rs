@@ -32,7 +32,10 @@ use std::collections::BTreeMap;
 /// - 3: the tidy row holds the participant's enrolment and withdrawal days and whether the
 ///   group report counts them as started and as a completer; a version-2 record has none, so
 ///   it is recomputed rather than reused with those columns empty.
-pub const FORMAT: u32 = 3;
+/// - 4: the group row holds the last week the participant can have in the period and the week
+///   of their withdrawal (the audit of week means printed again); a version-3 record has
+///   neither, so it is recomputed.
+pub const FORMAT: u32 = 4;
 /// Folder of the partial results inside an output folder.
 pub const CACHE_DIR: &str = "cache";
 
@@ -294,6 +297,10 @@ pub struct SummaryRecord {
     outcome_kg: Option<ExactF64>,
     last_observed_kg: Option<ExactF64>,
     weekly_change_percent: Vec<(u32, ExactF64)>,
+    #[serde(default)]
+    weeks_in_period: Option<u32>,
+    #[serde(default)]
+    withdrew_week: Option<u32>,
     activity_minutes_per_week: Option<ExactF64>,
     weigh_ins_per_week: Option<ExactF64>,
     food_log_days_per_week: Option<ExactF64>,
@@ -318,6 +325,8 @@ impl SummaryRecord {
                 .iter()
                 .map(|&(w, v)| (w, ExactF64(v)))
                 .collect(),
+            weeks_in_period: s.weeks_in_period,
+            withdrew_week: s.withdrew_week,
             activity_minutes_per_week: ex(s.activity_minutes_per_week),
             weigh_ins_per_week: ex(s.weigh_ins_per_week),
             food_log_days_per_week: ex(s.food_log_days_per_week),
@@ -342,6 +351,8 @@ impl SummaryRecord {
                 .iter()
                 .map(|&(w, v)| (w, v.0))
                 .collect(),
+            weeks_in_period: self.weeks_in_period,
+            withdrew_week: self.withdrew_week,
             activity_minutes_per_week: un(self.activity_minutes_per_week),
             weigh_ins_per_week: un(self.weigh_ins_per_week),
             food_log_days_per_week: un(self.food_log_days_per_week),
@@ -525,6 +536,8 @@ mod tests {
             outcome_kg: None,
             last_observed_kg: Some(f64::NAN),
             weekly_change_percent: vec![(0, -0.1), (1, -0.7000000000000001)],
+            weeks_in_period: Some(9),
+            withdrew_week: None,
             activity_minutes_per_week: Some(151.0),
             weigh_ins_per_week: None,
             food_log_days_per_week: Some(4.2),
