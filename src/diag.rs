@@ -302,17 +302,20 @@ pub fn printable(s: &str) -> std::borrow::Cow<'_, str> {
 /// [`printable`] `s`, with what lies beyond its first and last `keep` characters replaced by
 /// `…` and how many were left out: for a path a message quotes from a folder's listing, where
 /// a chain of 20,000 nested folders was quoted whole (40,000 characters in one message).
+///
+/// Cut before it is made printable, so an escape (`\u{1b}`) is never cut in two.
 pub fn printable_clipped(s: &str, keep: usize) -> String {
-    let shown = printable(s);
-    let n = shown.chars().count();
+    let n = s.chars().count();
     if n <= 2 * keep + 1 {
-        return shown.into_owned();
+        return printable(s).into_owned();
     }
-    let head: String = shown.chars().take(keep).collect();
-    let tail: String = shown.chars().skip(n - keep).collect();
+    let head: String = s.chars().take(keep).collect();
+    let tail: String = s.chars().skip(n - keep).collect();
     format!(
-        "{head}… ({} more characters) …{tail}",
-        thousands(n - 2 * keep)
+        "{}… ({} more characters) …{}",
+        printable(&head),
+        thousands(n - 2 * keep),
+        printable(&tail)
     )
 }
 
@@ -396,6 +399,20 @@ pub fn thousands(n: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A clipped path is cut before its control characters are shown as escapes: cut after,
+    /// `\u{1b}` could lose its closing brace.
+    #[test]
+    fn a_clipped_path_never_cuts_an_escape_in_two() {
+        let s = format!("{}\u{1b}{}", "a".repeat(58), "b".repeat(200));
+        let shown = printable_clipped(&s, 60);
+        assert!(
+            shown.starts_with(&format!("{}\\u{{1b}}b…", "a".repeat(58))),
+            "{shown}"
+        );
+        assert!(shown.contains("(139 more characters)"), "{shown}");
+        assert!(shown.ends_with(&"b".repeat(60)), "{shown}");
+    }
 
     #[test]
     fn hundreds_of_digits_are_shown_compactly() {

@@ -198,6 +198,7 @@ pub struct Staging {
     /// The staging folder, opened once as it was made (never through a link): every file and
     /// folder of the output is made relative to it, so a `.NAME.staging` swapped for a link
     /// while the run goes on never has anything made where the link leads.
+    #[cfg_attr(not(unix), allow(dead_code))]
     handle: StagingHandle,
     previous: PathBuf,
     written: Mutex<Vec<OutputFile>>,
@@ -952,12 +953,16 @@ impl Staging {
             remove_ours(&dir, STAGING_MARKER)?;
             // Said, so that a log whose last run has a start line and no end (SIGKILL, a power
             // cut) is explained by the next one (tryout24: the removal was silent).
+            let left = if fs::symlink_metadata(&out_dir).is_ok() {
+                format!("{} was left as that run found it", out_dir.display())
+            } else {
+                "nothing had been put in its place".to_string()
+            };
             tracing::warn!(
                 "a run into {} did not finish (killed, or a power cut): its unfinished output \
-                 {} was removed, and {} was left as that run found it",
+                 {} was removed, and {left}",
                 out_dir.display(),
                 dir.display(),
-                out_dir.display()
             );
         }
         let handle = {

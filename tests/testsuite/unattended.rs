@@ -454,8 +454,21 @@ fn a_run_killed_between_the_renames_is_recovered() {
             .contains("did not finish (killed, or a power cut): its unfinished output"),
         "{o:?}"
     );
+    assert!(o.stderr.contains("was left as that run found it"), "{o:?}");
     no_leftovers(&parent, "reports");
     assert!(!out.join(".cohortpress-staging").exists());
+    // Killed on its first run into a folder that does not exist yet: nothing to leave as it was.
+    let aside = parent.join("kept-aside");
+    std::fs::rename(&out, &aside).unwrap();
+    std::fs::create_dir(parent.join(".reports.staging")).unwrap();
+    std::fs::write(parent.join(".reports.staging/.cohortpress-staging"), "").unwrap();
+    let o = run_to(&t, &out, &[]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(
+        o.stderr.contains("nothing had been put in its place"),
+        "{o:?}"
+    );
+    std::fs::remove_dir_all(&aside).unwrap();
     // Something foreign in the swap's way is never deleted.
     foreign_folder(&copy);
     let o = run_to(&t, &out, &[]);
