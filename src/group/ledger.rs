@@ -1081,6 +1081,19 @@ impl LedgerFolder {
 mod tests {
     use super::*;
 
+    /// A release of September with nothing published.
+    fn september() -> ReleaseRecord {
+        release_record(
+            "p",
+            "2026-09-01",
+            "2026-09-30",
+            "2026-10-01",
+            line(),
+            Published::default(),
+            String::new(),
+        )
+    }
+
     fn line() -> ReleaseLine {
         ReleaseLine {
             period: "2026-09-01 to 2026-09-30".into(),
@@ -1110,15 +1123,7 @@ mod tests {
         let moved = tmp.path().join("moved");
         std::fs::rename(&dir, &moved).unwrap();
         std::os::unix::fs::symlink(&other, &dir).unwrap();
-        let release = release_record(
-            "p",
-            "2026-09-01",
-            "2026-09-30",
-            "2026-10-01",
-            line(),
-            Published::default(),
-            String::new(),
-        );
+        let release = september();
         ledger.record(release).unwrap();
         assert_eq!(
             std::fs::read_to_string(other.join(LEDGER_FILE)).unwrap(),
@@ -1218,15 +1223,7 @@ mod tests {
         let link = tmp.path().join("state");
         std::os::unix::fs::symlink(&real, &link).unwrap();
         let mut ledger = Ledger::open(&link).unwrap();
-        let release = release_record(
-            "p",
-            "2026-09-01",
-            "2026-09-30",
-            "2026-10-01",
-            line(),
-            Published::default(),
-            String::new(),
-        );
+        let release = september();
         ledger.record(release).unwrap();
         drop(ledger);
         assert!(std::fs::symlink_metadata(&link).unwrap().is_symlink());

@@ -1826,17 +1826,17 @@ pub(super) fn build(
         .iter()
         .flat_map(|(&d, ws)| ws.iter().map(move |&w| (d, w)))
         .collect();
-    forced_list.sort_by_key(|&(d, w)| {
-        let at = std::iter::once(&program)
-            .chain(splits.iter().flat_map(|(_, drafts, _)| drafts.iter()))
-            .position(|x| std::ptr::eq(x, d));
-        (at, w)
-    });
-    for (d, w) in forced_list {
-        let draft = std::iter::once(&program)
-            .chain(splits.iter().flat_map(|(_, drafts, _)| drafts.iter()))
+    // Every section in report order (the whole program, then each split's).
+    let sections =
+        || std::iter::once(&program).chain(splits.iter().flat_map(|(_, drafts, _)| drafts.iter()));
+    let section = |d: *const Draft| {
+        sections()
             .find(|x| std::ptr::eq(*x, d))
-            .expect("a shown section");
+            .expect("a shown section")
+    };
+    forced_list.sort_by_key(|&(d, w)| (sections().position(|x| std::ptr::eq(x, d)), w));
+    for (d, w) in forced_list {
+        let draft = section(d);
         if withdrawn.entry(d).or_default().insert(Line::Week(w)) {
             audit_notes.push(AuditNote {
                 section: draft.label.clone(),
@@ -1851,10 +1851,7 @@ pub(super) fn build(
         }
     }
     for &(d, w) in &mean_withheld {
-        let draft = std::iter::once(&program)
-            .chain(splits.iter().flat_map(|(_, drafts, _)| drafts.iter()))
-            .find(|x| std::ptr::eq(*x, d))
-            .expect("a shown section");
+        let draft = section(d);
         if withdrawn.entry(d).or_default().insert(Line::Week(w)) {
             audit_notes.push(AuditNote {
                 section: draft.label.clone(),
