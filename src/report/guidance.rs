@@ -1092,7 +1092,7 @@ fn maintain_sentence(
     // floor, which holds whatever the figure.
     if f.implied.is_none() {
         return Some(format!(
-            "How much you would need to eat to hold your weight is not known from your records this month: that figure comes from your weight trend over the last four weeks, which does not give one now. An estimate from a published equation and a typical activity level can be several hundred kcal a day off for one person, so this report gives none. Your weekly weigh-ins are the best guide: a steady weight means you are eating about what you use. Please do not eat less than {} a day without talking to a licensed clinician.",
+            "How much you would need to eat to hold your weight is not known from your records this month: that figure comes from your weight trend over the last four weeks, which does not give one now. An estimate from a published equation and a typical activity level can be several hundred kcal a day off for one person, so this report gives none. Your weigh-ins over the coming weeks are the best guide: a steady weight means you are eating about what you use. Please do not eat less than {} a day without talking to a licensed clinician.",
             fmt::kcal(floor)
         ));
     }
@@ -1108,7 +1108,7 @@ fn maintain_sentence(
     // measurement, and the weigh-ins are named as the guide.
     let range = match (tdee.lower, tdee.upper) {
         (Some(l), Some(u)) if u > l => format!(
-            " (likely between {} and {}, so let your weekly weigh-ins guide you)",
+            " (likely between {} and {}, so let your weigh-ins over the coming weeks guide you)",
             fmt::int(fmt::floor_to(l, KCAL_STEP)),
             fmt::kcal(fmt::ceil_to(u, KCAL_STEP))
         ),
@@ -2319,7 +2319,7 @@ mod tests {
     #[test]
     fn a_holding_range_that_reaches_under_the_floor_carries_the_floor() {
         // A woman of 69, 140 cm and 40.5 kg, steady: "about 1,400 kcal a day holds your current
-        // weight … (likely between 1,150 and 1,650 kcal, so let your weekly weigh-ins guide
+        // weight … (likely between 1,150 and 1,650 kcal, so let your weigh-ins over the coming weeks guide
         // you)". The range's lower end, under the 1,200 kcal floor, was printed with the
         // weigh-ins named as the guide and nothing about the floor.
         let t = Thresholds::default();
@@ -2336,7 +2336,7 @@ mod tests {
             .paragraphs
             .join(" ");
         assert!(
-            all.contains("about 1,400 kcal a day holds your current weight with your present activity (likely between 1,100 and 1,700 kcal, so let your weekly weigh-ins guide you). Whatever your weigh-ins show, please do not eat less than 1,200 kcal a day without talking to a licensed clinician."),
+            all.contains("about 1,400 kcal a day holds your current weight with your present activity (likely between 1,100 and 1,700 kcal, so let your weigh-ins over the coming weeks guide you). Whatever your weigh-ins show, please do not eat less than 1,200 kcal a day without talking to a licensed clinician."),
             "{all}"
         );
         // A range above the floor needs no such line.
@@ -2748,7 +2748,7 @@ mod tests {
             .paragraphs
             .join(" ");
         assert!(
-            all.contains("about 2,000 kcal a day holds your current weight with your present activity (likely between 1,600 and 2,400 kcal, so let your weekly weigh-ins guide you)."),
+            all.contains("about 2,000 kcal a day holds your current weight with your present activity (likely between 1,600 and 2,400 kcal, so let your weigh-ins over the coming weeks guide you)."),
             "{all}"
         );
     }
