@@ -1041,7 +1041,11 @@ fn headline(
             None if no_weigh_in => {
                 "No weigh-in is recorded yet, so this report cannot show where your weight stands or how it is moving.".to_string()
             }
-            None => "There are too few recent weigh-ins to see how your weight moved over the last four weeks.".to_string(),
+            // "Too few … to see how your weight moved" stood above a fast-loss flag giving
+            // "about 1.2 kg a week" and an implied intake from the same weeks (a weekly
+            // weigher, clinical27): the weigh-ins do show something, only not enough for the
+            // verdicts (plateau, loss, regain) this sentence gives everyone else.
+            None => "There are too few recent weigh-ins for a firm reading of how your weight moved over the last four weeks.".to_string(),
         },
     };
     // A level or slowly moving trend read from fewer weigh-ins than one a week in the last four
@@ -2672,7 +2676,8 @@ mod activity_unread_tests {
             h,
             "Your weight has come back up from its lowest point: your trend weight is now about \
              5.3 kg above its lowest point so far (95 % range 3.8 to 6.8 kg). There are too few \
-             recent weigh-ins to see how your weight moved over the last four weeks."
+             recent weigh-ins for a firm reading of how your weight moved over the last four \
+             weeks."
         );
         let v = BuiltinViews {
             trend: Some(t.clone()),
@@ -3244,7 +3249,9 @@ mod activity_unread_tests {
 
     /// Sample program, April 2026, SG-006 (enrolled 20 April, 7 weigh-ins in 11 days) read
     /// "There are too few recent weigh-ins to see how your weight moved over the last four
-    /// weeks", a reproach for weeks that had not yet passed.
+    /// weeks", a reproach for weeks that had not yet passed. Someone with weigh-ins too few for
+    /// a verdict is told so without "to see how your weight moved", which the report's own
+    /// fast-loss flag from the same weeks contradicted.
     #[test]
     fn a_recent_joiner_is_told_it_is_too_early_not_that_weigh_ins_are_too_few() {
         let t = TrendView {
@@ -3267,7 +3274,10 @@ mod activity_unread_tests {
             "You joined on 20 Apr 2026, so it is too early to see which way your weight is moving; a few more weeks of weigh-ins will show it."
         );
         let h = plain_headline(&t);
-        assert!(h.starts_with("There are too few recent weigh-ins"), "{h}");
+        assert_eq!(
+            h,
+            "There are too few recent weigh-ins for a firm reading of how your weight moved over the last four weeks."
+        );
         // None at all: not "too few".
         let h = headline(
             Some(&t),
