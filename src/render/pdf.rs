@@ -543,12 +543,7 @@ impl Layout {
     /// A table; it starts on a page with its header and first [`KEEP_ROWS`] rows, and its last
     /// row stays on one page with the next `tail` points.
     fn table(&mut self, header: &[String], rows: &[Vec<String>], widths: &[f32], tail: f32) {
-        let ncols = rows
-            .iter()
-            .map(Vec::len)
-            .chain([header.len()])
-            .max()
-            .unwrap_or(0);
+        let ncols = column_count(header, rows);
         if ncols == 0 {
             return;
         }
@@ -896,15 +891,19 @@ fn start_height(rest: &[Block]) -> f32 {
     h.min(CONTENT_TOP - CONTENT_BOTTOM)
 }
 
-/// The height of a table's header and first [`KEEP_ROWS`] rows, as [`Layout::table`] lays
-/// them out, pt.
-fn table_start_height(header: &[String], rows: &[Vec<String>], widths: &[f32]) -> f32 {
-    let ncols = rows
-        .iter()
+/// How many columns a table has: its widest row, or its header.
+fn column_count(header: &[String], rows: &[Vec<String>]) -> usize {
+    rows.iter()
         .map(Vec::len)
         .chain([header.len()])
         .max()
-        .unwrap_or(0);
+        .unwrap_or(0)
+}
+
+/// The height of a table's header and first [`KEEP_ROWS`] rows, as [`Layout::table`] lays
+/// them out, pt.
+fn table_start_height(header: &[String], rows: &[Vec<String>], widths: &[f32]) -> f32 {
+    let ncols = column_count(header, rows);
     if ncols == 0 {
         return 0.0;
     }
