@@ -432,12 +432,7 @@ impl Layout {
 
     /// A two-column block; its last row stays on one page with the next `tail` points.
     fn key_values(&mut self, kvs: &[(String, String)], tail: f32) {
-        let regular = font::face(Face::Regular);
-        let widest = kvs
-            .iter()
-            .map(|(k, _)| regular.width(k, BODY))
-            .fold(0.0f32, f32::max);
-        let key_w = (widest + 12.0).min(CONTENT_W * 0.38);
+        let key_w = key_width(kvs);
         let val_x = MARGIN_X + key_w;
         let val_w = CONTENT_W - key_w;
         let lh = BODY * LEADING;
@@ -864,12 +859,7 @@ fn start_height(rest: &[Block]) -> f32 {
             widths,
         }) => table_start_height(header, rows, widths),
         Some(Block::KeyValues(kvs)) => {
-            let regular = font::face(Face::Regular);
-            let widest = kvs
-                .iter()
-                .map(|(k, _)| regular.width(k, BODY))
-                .fold(0.0f32, f32::max);
-            let key_w = (widest + 12.0).min(CONTENT_W * 0.38);
+            let key_w = key_width(kvs);
             kvs.first().map_or(0.0, |(k, v)| {
                 let n = wrap(k, Face::Regular, BODY, key_w - 10.0)
                     .len()
@@ -889,6 +879,17 @@ fn start_height(rest: &[Block]) -> f32 {
         }),
     };
     h.min(CONTENT_TOP - CONTENT_BOTTOM)
+}
+
+/// The width of a two-column block's key column, pt: its widest key and a gap, at most 38 % of
+/// the text width.
+fn key_width(kvs: &[(String, String)]) -> f32 {
+    let regular = font::face(Face::Regular);
+    let widest = kvs
+        .iter()
+        .map(|(k, _)| regular.width(k, BODY))
+        .fold(0.0f32, f32::max);
+    (widest + 12.0).min(CONTENT_W * 0.38)
 }
 
 /// How many columns a table has: its widest row, or its header.
