@@ -70,10 +70,11 @@ fn check(seed: u64) {
         ),
     ];
     // The status at days 60, 120 and 180. Weekly weighers get a verdict where the weight
-    // clearly moved (measured 53.8 % and 45.5 %, n = 26 and 22; none before a loss or rise was
-    // allowed from fewer than 8 weigh-ins), and verdicts stay right (contradicted: 1.3 % and
-    // 1.6 % of all, 1.9 % and 2.0 % when a pace beyond the band was a loss or rise whatever its
-    // interval said of zero; 0 of 57 and 0 of 41 weekly).
+    // clearly moved (measured 26.9 % and 27.3 %, n = 26 and 22; none before a loss or rise was
+    // allowed from fewer than 8 weigh-ins, about half when the window's own readings had only to
+    // point beyond the band, which called a stall "losing" far more often; the trend crate's
+    // `a_stall_weighed_weekly_after_a_loss_is_seldom_called_a_loss`), and verdicts stay right
+    // (contradicted: 1.1 % and 1.6 % of all; 1 of 46 and 0 of 34 weekly).
     let weekly = Summary::of(outcomes.iter().filter(|o| o.weighing == Weighing::Weekly));
     let floors = floors.into_iter().chain([
         (
@@ -84,7 +85,7 @@ fn check(seed: u64) {
         ),
         (
             "weekly weighers: a verdict where the weight moved",
-            0.3,
+            0.2,
             true,
             weekly.status_verdict_moving,
         ),
@@ -150,7 +151,11 @@ fn noisier_scales_and_heavier_clothing_keep_the_intervals() {
         // and 1.4 % when a pace beyond the band was a loss or rise whatever its interval said
         // of zero).
         let x = s.status_wrong.value.expect("statuses were scored");
-        assert!(x <= 0.055, "{}: status contradicted {x:.3} is above 0.055", sc.name);
+        assert!(
+            x <= 0.055,
+            "{}: status contradicted {x:.3} is above 0.055",
+            sc.name
+        );
     }
 }
 
