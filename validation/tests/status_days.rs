@@ -22,3 +22,25 @@ fn a_last_day_that_is_day_120_is_scored_once() {
     // 180 days: days 60, 120 and 180.
     assert_eq!(run_person(seed, index, 180).status.len(), 3);
 }
+
+/// The weekly weigher's verdict the true weight change contradicts, named in docs/METHODS.md
+/// ("1 of their 57 verdicts"): seed 20261202, person 254, `regaining` on day 180 at a true
+/// −0.01 kg a week, from a last home weigh-in 2.6 kg above the true weight. When a change to
+/// the trend module makes this pass no more, the sentence there is to be measured again.
+#[test]
+fn the_contradicted_weekly_verdict_named_in_methods_is_still_there() {
+    use cohortpress_metric_trend::view::Status;
+    let p = simulate(20261202, 254, 180);
+    assert_eq!(p.weighing, Weighing::Weekly);
+    let last = p.obs.iter().rfind(|o| o.source == "home-scale").unwrap();
+    assert_eq!(last.day, 177);
+    assert!(
+        (last.kg - p.bw[177] - 2.6).abs() < 0.05,
+        "{} vs {}",
+        last.kg,
+        p.bw[177]
+    );
+    let (t, _, said) = *run_person(20261202, 254, 180).status.last().unwrap();
+    assert_eq!(said, Status::Regaining);
+    assert!((t * 7.0 + 0.01).abs() < 0.005, "{}", t * 7.0);
+}
