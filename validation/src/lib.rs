@@ -388,8 +388,12 @@ pub fn run_person_in(
     // The status at days 60, 120 and the end, for each that has a weigh-in in its last 28 days,
     // against the least-squares slope of the true body weight over those 28 days (not its two
     // ends: a day's glycogen and water move with that day's intake by a few hundred grams). The band is the `trend`
-    // module's default, 0.25 % of the weight a week, which the harness does not change.
-    let status = [59, 119, end]
+    // module's default, 0.25 % of the weight a week, which the harness does not change. With
+    // `--days 120` the end is day 120 itself, scored once (the days are in order: the harness
+    // needs at least 120).
+    let mut checked = vec![59, 119, end];
+    checked.dedup();
+    let status = checked
         .into_iter()
         .filter(|&c| c <= end && p.obs.iter().any(|o| o.day <= c && o.day + 28 > c))
         .map(|c| {
