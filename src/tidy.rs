@@ -97,7 +97,7 @@ pub struct ReportOffers {
     pub intake: bool,
     /// Walking more alone (the `walking` row).
     pub walking: bool,
-    /// A change of both ("some of each"; the `combined` row, when the module gives one).
+    /// Some of each (the `combined` row, which the module sizes as the report does).
     pub both: bool,
 }
 
@@ -923,8 +923,9 @@ pub fn datapackage(
                     "column name; each row of energy.options also has the column \
                      offered_in_report (not the module's own): yes when the participant's report \
                      offered that option under \"What to try next\" (intake: eating less alone; \
-                     walking: walking more alone; combined: a change of both, which the report \
-                     sizes its own way, so its amounts are not the row's), else no. feasible is \
+                     walking: walking more alone; combined: some of each, half the intake change \
+                     within the floor and walking for the rest, as the report sizes it), else \
+                     no. feasible is \
                      the module's verdict by its own limits; the report offers fewer: none in a \
                      report that does not suggest restarting a loss, no intake change under \
                      guidance.min_intake_change_kcal or taking the logged intake below the floor, \
