@@ -160,7 +160,9 @@ impl MetricModule for TrendModule {
                     "",
                     3.0,
                     84.0,
-                    "Days with a weigh-in a window needs (spread over at least 3 of its 4 weeks)",
+                    "Days with a weigh-in a window needs for a plateau or steady verdict; a clear \
+                     loss or rise needs 3, with the window's own readings showing it too (either \
+                     way, weigh-ins in at least 3 of its 4 weeks)",
                 ),
                 setting(
                     "plateau_band_percent_per_week",
@@ -1176,12 +1178,13 @@ fn compute_trend(
             .as_ref()
             .is_some_and(|w| w.kind != WindowKind::InsufficientData)
     {
-        // Not regaining needs the recent weigh-ins the status needs: last weeks that hold
-        // those a window's verdict needs (`min_weigh_ins` days, three weeks in four with one),
-        // or a plateau still going in them (the status `plateau`). Three weigh-ins weeks apart
-        // give a trend drawn straight between them, lowest at the last one, and were
-        // `not_regaining` whatever the weight did between them; a rise the level test confirms
-        // is `regaining` above, however sparse the weigh-ins.
+        // Not regaining needs the recent weigh-ins the status needs: a verdict of the last
+        // window's own (a loss its own readings show as well when they are fewer than
+        // `min_weigh_ins`; weight held steady from `min_weigh_ins` days), or a plateau still
+        // going in it (the status `plateau`). Three weigh-ins weeks apart give a trend drawn
+        // straight between them, lowest at the last one, and were `not_regaining` whatever the
+        // weight did between them; a rise the level test confirms is `regaining` above, however
+        // sparse the weigh-ins.
         RegainVerdict::NotRegaining
     } else {
         RegainVerdict::InsufficientData

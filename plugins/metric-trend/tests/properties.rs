@@ -823,3 +823,62 @@ fn a_slow_steady_regain_after_a_loss_is_regaining() {
     // The level test alone said so for 2 of the 8.
     assert_eq!(level_alone, 2);
 }
+
+/// Weekly weigh-ins hold 4 days in a 4-week window, never the 8 a plateau verdict needs, but a
+/// loss whose whole interval lies below the band is shown by them as well (the issue's "weekly
+/// weighers never get a verdict"; before, `insufficient_data` at 1 kg a week).
+#[test]
+fn weekly_weigh_ins_with_a_clear_loss_are_losing() {
+    let mut rng = Rng(5);
+    let w: Vec<(i64, f64)> = (0..13)
+        .map(|k| (7 * k, 95.0 - 1.0 * k as f64 + 0.4 * rng.normal()))
+        .collect();
+    let out = run(&w, 84);
+    assert_eq!(out.text("status"), Some("losing"));
+    let slope = out.scalar("slope_kg_per_week").unwrap();
+    assert!((-1.4..=-0.6).contains(&slope), "{slope}");
+    assert!(
+        kinds(&out).iter().any(|k| k.0 == "loss"),
+        "{:?}",
+        kinds(&out)
+    );
+    // The same weeks with the weight held: no plateau or steady verdict from 4 weigh-ins.
+    let flat: Vec<(i64, f64)> = (0..13)
+        .map(|k| (7 * k, 95.0 + 0.4 * rng.normal()))
+        .collect();
+    assert_eq!(run(&flat, 84).text("status"), Some("insufficient_data"));
+}
+
+/// With weekly weigh-ins the smoother's slope cannot turn between two readings, so after a
+/// loss it can still place a whole interval below the band when the last readings rise. The
+/// window's own readings must show the loss too. The readings are those of validation seed
+/// 20261202, person 164 (simulated), who stopped after day 100: "losing" at day 119 while the
+/// true weight rose 0.15 kg a week.
+#[test]
+fn weekly_weigh_ins_that_turned_up_are_not_a_loss() {
+    let w: Vec<(i64, f64)> = [
+        (2, 97.5),
+        (9, 97.0),
+        (16, 95.6),
+        (23, 96.4),
+        (30, 94.8),
+        (37, 92.9),
+        (44, 94.1),
+        (51, 93.6),
+        (58, 92.3),
+        (65, 93.5),
+        (72, 92.9),
+        (79, 91.6),
+        (93, 89.9),
+        (100, 88.4),
+        (107, 89.5),
+        (114, 90.1),
+    ]
+    .into_iter()
+    .map(|(d, y)| (d - 2, y))
+    .collect();
+    let out = run(&w, 117);
+    assert_ne!(out.text("status"), Some("losing"));
+    let t = out.scalar("theil_sen_slope_kg_per_week").unwrap();
+    assert!(t > 0.0, "{t}");
+}
