@@ -71,13 +71,14 @@ fn check(seed: u64) {
     ];
     // The status at days 60, 120 and 180. Weekly weighers get a verdict where the weight
     // clearly moved (measured 53.8 % and 45.5 %, n = 26 and 22; none before a loss or rise was
-    // allowed from fewer than 8 weigh-ins), and verdicts stay right (contradicted: 1.9 % and
-    // 2.0 % of all, 0 of 57 and 0 of 41 weekly).
+    // allowed from fewer than 8 weigh-ins), and verdicts stay right (contradicted: 1.3 % and
+    // 1.6 % of all, 1.9 % and 2.0 % when a pace beyond the band was a loss or rise whatever its
+    // interval said of zero; 0 of 57 and 0 of 41 weekly).
     let weekly = Summary::of(outcomes.iter().filter(|o| o.weighing == Weighing::Weekly));
     let floors = floors.into_iter().chain([
         (
             "status verdicts the true weight change contradicts",
-            0.05,
+            0.03,
             false,
             s.status_wrong,
         ),
@@ -145,6 +146,11 @@ fn noisier_scales_and_heavier_clothing_keep_the_intervals() {
             let x = f.value.expect("people were scored");
             assert!(x >= 0.90, "{}: {what} {x:.3} is below 0.90", sc.name);
         }
+        // Status verdicts the true weight change contradicts: measured 4.2 % and 1.0 % (6.5 %
+        // and 1.4 % when a pace beyond the band was a loss or rise whatever its interval said
+        // of zero).
+        let x = s.status_wrong.value.expect("statuses were scored");
+        assert!(x <= 0.055, "{}: status contradicted {x:.3} is above 0.055", sc.name);
     }
 }
 
