@@ -947,8 +947,9 @@ fn walk_minutes(raw: f64, t: &Thresholds) -> Option<f64> {
     (m >= t.min_walk_minutes && raw <= t.max_walk_minutes).then_some(m)
 }
 
-/// The intake cut "Some of each" prints, from the exact cut `exact` the `energy` module's
-/// `combined` row gives: the multiple of 50 kcal nearest it among those that keep both limits,
+/// The intake cut an option prints, from the exact cut `exact` of the `energy` module's row
+/// (`combined` for "Some of each"; `intake` for eating less alone, with no walk and so no
+/// `least`): the multiple of 50 kcal nearest it among those that keep both limits,
 /// no more than `room` (the careful end of the intake less the floor) and no less than `least`
 /// (below it the rest would need more walking than the cap); when no multiple of 50 lies
 /// between them, the nearest multiple of 10, then of 1, then the exact cut, so that rounding
@@ -958,7 +959,7 @@ fn walk_minutes(raw: f64, t: &Thresholds) -> Option<f64> {
 /// was rounded down to 50: the sample program's SG-042 (1 Oct 2026), a `combined` row of 341
 /// kcal and 57.3 minutes, `feasible`, became 300 kcal and 64 minutes, over the cap of 60, and
 /// the report offered nothing.
-fn mix_cut_printed(exact: f64, room: f64, least: f64) -> Option<f64> {
+fn printed_cut(exact: f64, room: f64, least: f64) -> Option<f64> {
     let fits = |c: f64| c <= room + 1e-9 && c >= least - 1e-9;
     if !fits(exact) {
         return None;
@@ -1463,8 +1464,10 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     let mut dropped_intake = false;
 
     // Eat less only.
-    let cut = fmt::round_to(need, KCAL_STEP);
-    if cut >= t.min_intake_change_kcal && lower - cut >= floor {
+    // Rounded within the floor, as the module's `intake` row is checked: rounded to the
+    // nearest 50 alone, a cut of 280 kcal with 290 of room read 300 and was dropped.
+    let cut = printed_cut(need, lower - floor, f64::NEG_INFINITY).unwrap_or(0.0);
+    if cut >= t.min_intake_change_kcal {
         // Both frames when the food log and the weight trend disagree, so the amount "in all"
         // never reads as more than the person logs.
         let by_log = f
@@ -1498,7 +1501,7 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     // Some of each: half the change from intake (never past the floor at the lower bound),
     // the rest from walking. The `energy` module's `combined` row is sized by the same
     // function, so the tidy metrics carry the option offered here (its amounts unrounded).
-    let cut_mix = mix_cut_printed(
+    let cut_mix = printed_cut(
         energy_view::combined_intake_cut(need, lower, floor),
         lower - floor,
         f.walk_need
@@ -1911,16 +1914,54 @@ mod tests {
         );
 
         // The nearest multiple of 50 is used when both limits allow it, down on a tie…
-        assert_eq!(mix_cut_printed(320.0, 650.0, 0.0), Some(300.0));
-        assert_eq!(mix_cut_printed(325.0, 650.0, 0.0), Some(300.0));
+        assert_eq!(printed_cut(320.0, 650.0, 0.0), Some(300.0));
+        assert_eq!(printed_cut(325.0, 650.0, 0.0), Some(300.0));
         // …the other one when the nearest breaks a limit (the floor, then the walking cap)…
-        assert_eq!(mix_cut_printed(341.0, 343.7, 0.0), Some(300.0));
-        assert_eq!(mix_cut_printed(320.0, 650.0, 310.0), Some(350.0));
+        assert_eq!(printed_cut(341.0, 343.7, 0.0), Some(300.0));
+        assert_eq!(printed_cut(320.0, 650.0, 310.0), Some(350.0));
         // …a finer step when no multiple of 50 lies between the two limits…
-        assert_eq!(mix_cut_printed(341.0, 343.7, 338.2), Some(340.0));
-        assert_eq!(mix_cut_printed(341.4, 341.9, 341.1), Some(341.4));
+        assert_eq!(printed_cut(341.0, 343.7, 338.2), Some(340.0));
+        assert_eq!(printed_cut(341.4, 341.9, 341.1), Some(341.4));
         // …and none when the module's own cut leaves too long a walk (not `feasible`).
-        assert_eq!(mix_cut_printed(355.0, 523.0, 360.0), None);
+        assert_eq!(printed_cut(355.0, 523.0, 360.0), None);
+    }
+
+    /// Eating less alone keeps an option the `energy` module's `intake` row calls feasible: a
+    /// need of 280 kcal with 290 of room above the floor (careful end 1,490, floor 1,200).
+    /// Before, it was rounded to 300 kcal, past the floor, and dropped; a need just past the
+    /// room (310 with 300 of room, module: not feasible) was rounded to 300 and offered.
+    #[test]
+    fn eating_less_alone_is_rounded_within_the_floor() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.implied = Some(Est {
+            value: 1640.0,
+            lower: Some(1490.0),
+            upper: Some(1790.0),
+        });
+        f.intake_need = Some(280.0);
+        f.walk_need = Some(60.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        let eat_less = g
+            .options
+            .iter()
+            .find(|o| o.walk_minutes == 0.0)
+            .unwrap_or_else(|| panic!("no intake option: {g:?}"));
+        assert_eq!(eat_less.intake_cut_kcal, 250.0);
+        assert_eq!(eat_less.intake_at_lower_bound, Some(1240.0));
+        // 300 of room (careful end 1,500) and a need of 310: not feasible, not offered.
+        f.implied = Some(Est {
+            value: 1650.0,
+            lower: Some(1500.0),
+            upper: Some(1800.0),
+        });
+        f.intake_need = Some(310.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert!(g.options.iter().all(|o| o.walk_minutes > 0.0), "{g:?}");
+        assert!(
+            g.options_note
+                .contains("Eating less alone is not suggested")
+        );
     }
 
     #[test]
