@@ -31,7 +31,8 @@
 //! minutes, and nothing smaller than `min_intake_change_kcal` or `min_walk_minutes` is offered.
 //! A regain is met with the intake change that holds the current weight by the model (the
 //! energy balance), offered only when it clears the floor at the lower bound of the implied
-//! intake.
+//! intake; where the report does not advise losing (BMI below the loss cut-off for the
+//! person's age), it is sized on the balance's *lower* bound, so that it cannot start a loss.
 
 use super::Scope;
 use super::format as fmt;
@@ -980,10 +981,24 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     };
     g.paragraphs.push(opening);
     // What holds the current weight by the model: the energy balance, rounded; offered only
-    // when it clears the floor at the lower bound of the implied intake.
+    // when it clears the floor at the lower bound of the implied intake. Checked on its
+    // uncertain side like every amount: where the report does not advise losing weight (a BMI
+    // below the loss cut-off for the person's age, or no BMI to tell), a cut must not turn into
+    // a loss at the low end of the balance's interval, so it is the smallest surplus the
+    // interval allows, rounded down (a woman at BMI 22.8 rising 0.37 kg a week, balance +347
+    // kcal/d, 95 % +242 to +452, read "Eat about 350 kcal a day less": at +242 that is a
+    // deficit of about 110 kcal a day, a loss she was not to be advised; now 200). Where loss
+    // is advised, a loss at that end is within the person's aim, and the central value sizes it.
+    let careful_size = state.bmi.is_none() || bmi_rules_out_loss(state, t);
     let cut = f
         .balance
-        .map(|b| fmt::round_to(b.value, KCAL_STEP))
+        .and_then(|b| {
+            if careful_size {
+                b.lower.map(|l| fmt::floor_to(l, KCAL_STEP))
+            } else {
+                Some(fmt::round_to(b.value, KCAL_STEP))
+            }
+        })
         .unwrap_or(0.0);
     let lower_intake = f
         .implied
@@ -1001,8 +1016,12 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             weigh_in_frequency(f.weigh_ins_target)
         ));
     } else if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
-        g.options_intro =
-            "By the energy-balance model, either of these would about stop the rise:".into();
+        let effect = if careful_size {
+            "slow the rise or stop it"
+        } else {
+            "about stop the rise"
+        };
+        g.options_intro = format!("By the energy-balance model, either of these would {effect}:");
         g.options.push(OptionView {
             text: format!("Eat about {} a day less than now.", fmt::kcal(cut)),
             intake_cut_kcal: cut,
@@ -1013,16 +1032,26 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
         if let Some(o) = walk_option(cut, t, f, lower_intake, None) {
             g.options.push(o);
         }
-        if g.options.len() == 1 {
-            g.options_intro = "By the energy-balance model, this would about stop the rise:".into();
+        let one = g.options.len() == 1;
+        if one {
+            g.options_intro = format!("By the energy-balance model, this would {effect}:");
         }
+        let aim = match (careful_size, one) {
+            (true, true) => {
+                "At your BMI losing weight is not the aim, so this amount is sized on the smallest rise the estimate allows: it steadies your weight or slows the rise, and does not bring your weight down even if the estimate is off."
+            }
+            (true, false) => {
+                "At your BMI losing weight is not the aim, so these amounts are sized on the smallest rise the estimate allows: they steady your weight or slow the rise, and do not bring your weight down even if the estimate is off."
+            }
+            (false, true) => {
+                "This amount aims to hold your weight where it is, not to bring it down."
+            }
+            (false, false) => {
+                "These amounts aim to hold your weight where it is, not to bring it down."
+            }
+        };
         g.options_note = format!(
-            "{} to hold your weight where it is, not to bring it down. Even at the careful end of the estimate{}, eating this much less keeps your intake at or above {} a day.",
-            if g.options.len() == 1 {
-                "This amount aims"
-            } else {
-                "These amounts aim"
-            },
+            "{aim} Even at the careful end of the estimate{}, eating this much less keeps your intake at or above {} a day.",
             if f.logged.is_some() {
                 " and going by your food log"
             } else {
@@ -1043,6 +1072,14 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             },
             fmt::kcal(floor)
         ));
+    } else if careful_size
+        && f.balance
+            .is_some_and(|b| fmt::round_to(b.value, KCAL_STEP) >= t.min_intake_change_kcal)
+    {
+        // The central value would size an amount, the low end of the interval none.
+        g.paragraphs.push(
+            "At your BMI losing weight is not the aim, and the estimate cannot rule out that the rise is small: an amount sized to stop it could start a loss instead, so this report suggests no particular amount. Going back to the habits that worked for you earlier — regular weigh-ins, a food log, your usual activity — is a good first step.".into(),
+        );
     } else {
         let why = if f.balance.is_some() {
             "The rise is small next to the uncertainty of the estimate"
@@ -2652,6 +2689,68 @@ mod tests {
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.options.is_empty(), "{:?}", g.options);
         assert!(g.paragraphs.iter().any(|p| p.contains("not suggested")));
+    }
+
+    /// What stops a rise is checked on its uncertain side: at a BMI where the report does not
+    /// advise losing, it is sized on the balance's lower bound, so that at that end it holds the
+    /// weight rather than starting a loss. A woman at BMI 22.8 rising 0.37 kg a week (balance
+    /// +347 kcal/d, 95 % +242 to +452) read "Eat about 350 kcal a day less than now" (hand-made
+    /// participant RHEALTHY, clinical28 helper).
+    #[test]
+    fn what_stops_a_rise_at_a_healthy_bmi_is_no_loss_at_the_uncertain_end() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.balance = Some(Est {
+            value: 347.0,
+            lower: Some(242.0),
+            upper: Some(452.0),
+        });
+        let mut s = st(Regaining);
+        s.bmi = Some(22.8);
+        s.change_percent = Some(-2.0);
+        assert_eq!(decide(&s, &t), Phase::Regain);
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert_eq!(g.options[0].intake_cut_kcal, 200.0, "{:?}", g.options);
+        assert!(g.options[0].text.contains("200 kcal a day less"));
+        // At the low end of the balance the cut leaves no deficit.
+        assert!(242.0 - g.options[0].intake_cut_kcal >= 0.0);
+        assert_eq!(
+            g.options_intro,
+            "By the energy-balance model, either of these would slow the rise or stop it:"
+        );
+        assert!(
+            g.options_note
+                .starts_with("At your BMI losing weight is not the aim, so these amounts are sized on the smallest rise the estimate allows"),
+            "{}",
+            g.options_note
+        );
+        // From 70 the cut-off is 30: BMI 27 is sized the same careful way.
+        s.bmi = Some(27.0);
+        s.older = true;
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert_eq!(g.options[0].intake_cut_kcal, 200.0);
+        // Where loss is advised (BMI 29 under 70) the central value sizes it, as before.
+        s.bmi = Some(29.0);
+        s.older = false;
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert_eq!(g.options[0].intake_cut_kcal, 350.0);
+        assert!(g.options_intro.contains("about stop the rise"));
+        // An interval that reaches down near zero supports no amount at a healthy BMI: the
+        // report says why, and names none.
+        s.bmi = Some(22.8);
+        f.balance = Some(Est {
+            value: 347.0,
+            lower: Some(60.0),
+            upper: Some(634.0),
+        });
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert!(g.options.is_empty(), "{:?}", g.options);
+        let all = g.paragraphs.join(" ");
+        assert!(
+            all.contains("an amount sized to stop it could start a loss instead"),
+            "{all}"
+        );
+        assert!(!all.contains(" kcal"), "{all}");
     }
 
     #[test]
