@@ -1134,13 +1134,6 @@ fn maintain_sentence(
         ));
     }
     let hold = fmt::round_to(tdee.value, KCAL_STEP);
-    if hold < floor {
-        return Some(format!(
-            "Your energy needs are estimated at about {} a day, close to {} a day, the lowest intake usually advised without a clinician; please talk to the program staff before eating less.",
-            fmt::kcal(hold),
-            fmt::kcal(floor)
-        ));
-    }
     // The figure is an estimate: its range goes beside it, so nobody takes it for a
     // measurement, and the weigh-ins are named as the guide.
     let range = match (tdee.lower, tdee.upper) {
@@ -1151,30 +1144,53 @@ fn maintain_sentence(
         ),
         _ => String::new(),
     };
-    // Weeks after the last weigh-in there is no current weight or present activity to speak
-    // of (hand-made E12, no record since 15 Jul, read "holds your current weight" in September).
-    let mut s = match f.stale_since {
-        Some(d) => format!(
-            "By the energy-balance model, about {} a day would hold the weight of your last weigh-in on {}{range}.",
+    // A need under the floor is named as under it, however far: "close to 1,200 kcal a day"
+    // was said of every need below the floor, 1,150 or 700 alike (a woman of 142 cm and
+    // 40.5 kg, aged 80, steady: about 1,150 kcal a day, 95 % 800 to 1,550, with no range and
+    // "please talk to the program staff before eating less"; hand-made participant TINY80,
+    // clinical28 helper). Eating less than
+    // the need to hold the weight would take the intake further under the floor: that is for a
+    // clinician, as everywhere in this section.
+    let mut s = if hold < floor {
+        let at = match f.stale_since {
+            Some(d) => format!(" at the weight of your last weigh-in on {}", fmt::date(d)),
+            None => String::new(),
+        };
+        format!(
+            "By the energy-balance model, your energy needs{at} are about {} a day{range}, below {} a day, the lowest intake usually advised without a clinician. Please do not eat less than {} a day without talking to a licensed clinician; the program staff can help you arrange that.",
             fmt::kcal(hold),
-            fmt::date(d)
-        ),
-        None => format!(
-            "By the energy-balance model, about {} a day holds your current weight with your present activity{range}.",
-            fmt::kcal(hold)
-        ),
-    };
-    // A range whose lower end is under the floor must not read as leave to eat that little:
-    // the floor is checked on the uncertain side, as for every amount in this section.
-    if tdee
-        .lower
-        .is_some_and(|l| fmt::floor_to(l, KCAL_STEP) < floor)
-    {
-        s.push_str(&format!(
-            " Whatever your weigh-ins show, please do not eat less than {} a day without talking to a licensed clinician.",
+            fmt::kcal(floor),
             fmt::kcal(floor)
-        ));
-    }
+        )
+    } else {
+        // Weeks after the last weigh-in there is no current weight or present activity to
+        // speak of (hand-made E12, no record since 15 Jul, read "holds your current weight" in
+        // September).
+        let mut s = match f.stale_since {
+            Some(d) => format!(
+                "By the energy-balance model, about {} a day would hold the weight of your last weigh-in on {}{range}.",
+                fmt::kcal(hold),
+                fmt::date(d)
+            ),
+            None => format!(
+                "By the energy-balance model, about {} a day holds your current weight with your present activity{range}.",
+                fmt::kcal(hold)
+            ),
+        };
+        // A range whose lower end is under the floor must not read as leave to eat that
+        // little: the floor is checked on the uncertain side, as for every amount in this
+        // section.
+        if tdee
+            .lower
+            .is_some_and(|l| fmt::floor_to(l, KCAL_STEP) < floor)
+        {
+            s.push_str(&format!(
+                " Whatever your weigh-ins show, please do not eat less than {} a day without talking to a licensed clinician.",
+                fmt::kcal(floor)
+            ));
+        }
+        s
+    };
     if losing
         && let Some(b) = f.balance
         && let Some(upper) = b.upper
@@ -2386,6 +2402,58 @@ mod tests {
             .paragraphs
             .join(" ");
         assert!(!all.contains("please do not eat less"), "{all}");
+    }
+
+    /// A need under the floor is named as under it: "close to 1,200 kcal a day" was said of
+    /// every need below the floor, however far (hand-made TINY80: 142 cm, 40.5 kg, aged 80,
+    /// steady, about 1,150 kcal a day; here 1,000). The instruction not to go below the floor
+    /// without a licensed clinician stays.
+    #[test]
+    fn a_need_under_the_floor_is_named_with_the_floor_and_not_called_close() {
+        let t = Thresholds::default();
+        let mut s = st(Stable);
+        s.bmi = Some(20.1);
+        s.change_percent = Some(-0.2);
+        let mut f = facts();
+        f.tdee = Some(Est {
+            value: 1010.0,
+            lower: Some(820.0),
+            upper: Some(1200.0),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(!all.contains("close to"), "{all}");
+        assert!(
+            all.contains("By the energy-balance model, your energy needs are about 1,000 kcal a day (likely between 800 and 1,200 kcal, so let your weigh-ins over the coming weeks guide you), below 1,200 kcal a day, the lowest intake usually advised without a clinician. Please do not eat less than 1,200 kcal a day without talking to a licensed clinician; the program staff can help you arrange that."),
+            "{all}"
+        );
+        // Weeks after the last weigh-in, the need is that of the last weigh-in's weight.
+        f.stale_since = Some(NaiveDate::from_ymd_opt(2026, 5, 20).unwrap());
+        let all = compose(Phase::Maintain(MaintainWhy::BmiBelowCutoff), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("your energy needs at the weight of your last weigh-in on 20 May 2026 are about 1,000 kcal a day"),
+            "{all}"
+        );
+        // Losing past the target with a need under the floor: the careful step to stop losing
+        // is still named (it was dropped with the need).
+        s.status = Losing;
+        s.change_percent = Some(-8.0);
+        f.stale_since = None;
+        f.balance = Some(Est {
+            value: -300.0,
+            lower: Some(-420.0),
+            upper: Some(-180.0),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(
+            all.contains("If you would like to stop losing, eating about 150 kcal a day more than now is a safe first step."),
+            "{all}"
+        );
     }
 
     /// Demo program (150), SG-058 with its age set to 74 (BMI 35, plateau, September): the report
