@@ -394,7 +394,7 @@ fn fasting_glucose_class(mmol_l: f64) -> LabCategory {
 /// level 1 hypoglycaemia (ADA Standards of Care in Diabetes 2025, §6, "Hypoglycemia"; from
 /// memory). A fasting value this low in someone losing weight on a reduced intake (or taking a
 /// glucose-lowering drug) is for a licensed clinician, not "normal".
-const LOW_GLUCOSE_MG_DL: f64 = 70.0;
+pub const LOW_GLUCOSE_MG_DL: f64 = 70.0;
 
 /// Waist-circumference risk category (Europid cut points): `not_increased_risk`,
 /// `increased_risk` or `substantially_increased_risk`.
