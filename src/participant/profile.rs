@@ -6,7 +6,7 @@ use super::table::FileCtx;
 use crate::diag::Diagnostic;
 use crate::program::TargetsDef;
 use crate::program::load::key_line;
-use chrono::{Datelike, NaiveDate};
+use chrono::NaiveDate;
 use cohortpress_metric_api::{Profile, Sex, Targets, WithdrawalReason};
 use serde::Deserialize;
 use std::collections::BTreeMap;
@@ -272,14 +272,8 @@ fn mapping_start(text: &str) -> (u64, u64) {
     (1, 1)
 }
 
-/// Whole years from `birth` to `on`.
-pub fn whole_years(birth: NaiveDate, on: NaiveDate) -> i32 {
-    let mut y = on.year() - birth.year();
-    if (on.month(), on.day()) < (birth.month(), birth.day()) {
-        y -= 1;
-    }
-    y
-}
+/// Whole years from `birth` to `on` (the one calendar rule every age cut-off uses).
+pub use cohortpress_metric_api::whole_years;
 
 /// Parses and checks `profile.yaml` for the folder `folder_id`, in a program whose last day is
 /// `program_end`. Returns the profile when it has no errors (warnings may still be pushed).

@@ -320,7 +320,8 @@ pub struct State {
     /// The last four weeks' slope interval lies wholly above zero: the weight is still going
     /// up, even where the plateau band calls the pace small.
     pub still_rising: bool,
-    /// Aged 70 or over at the period's end (cohortpress_metric_outcomes::OLDER_ADULT_AGE).
+    /// Aged 70 or over at the period's end, in whole completed years
+    /// (cohortpress_metric_outcomes::OLDER_ADULT_AGE).
     pub older: bool,
 }
 
@@ -572,7 +573,8 @@ pub fn state_of(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResult
             .map_or(TrendStatus::Insufficient, |t| t.status.into()),
         regained: v.trend.as_ref().is_some_and(regain_confirmed),
         still_rising: v.trend.as_ref().is_some_and(still_rising),
-        older: data.profile.age_on(plan.period.to) >= cohortpress_metric_outcomes::OLDER_ADULT_AGE,
+        older: data.profile.whole_years_on(plan.period.to)
+            >= cohortpress_metric_outcomes::OLDER_ADULT_AGE,
     }
 }
 

@@ -421,7 +421,7 @@ impl Person<'_> {
             .equation
             .needs_lean_mass()
             .then(|| self.model.lean_for_fat(self.model.fat_for_weight(bw)));
-        let age = self.data.profile.age_on(d);
+        let age = self.equation.age_on(&self.data.profile, d);
         either_sex(self.sex, |sex| {
             self.equation
                 .resting_energy(sex, bw, self.height_cm, age, lean)
@@ -813,8 +813,9 @@ fn start<'a>(
         equation = RestingEquation::MifflinStJeor;
     }
     let lean0 = equation.needs_lean_mass().then_some(bw0 - fm0);
+    let eq_age0 = equation.age_on(&data.profile, data.profile.enrolled);
     let (rmr0, rmr0_sex_sd) = either_sex(sex, |sex| {
-        equation.resting_energy(sex, bw0, height_cm, age0, lean0)
+        equation.resting_energy(sex, bw0, height_cm, eq_age0, lean0)
     });
     let person = Person {
         data,

@@ -181,7 +181,8 @@ pub const LOW_BMI_LOSING_BELOW: f64 = 20.0;
 /// whose BMI counts as low below 22 (GLIM criteria: low BMI < 20 kg/m² under 70 years, < 22 at
 /// 70 and over; Cederholm et al. 2019, Clin Nutr 38:1–9, see the module notes).
 pub const LOW_BMI_LOSING_BELOW_70_PLUS: f64 = 22.0;
-/// Age from which `low_bmi_losing_below_70_plus` applies, years (GLIM 2019, as above).
+/// Age from which `low_bmi_losing_below_70_plus` applies, whole completed years
+/// (`Profile::whole_years_on`; GLIM 2019, as above).
 pub const OLDER_ADULT_AGE: f64 = 70.0;
 
 /// Round-off allowance at cut points (see the crate docs).
@@ -932,7 +933,13 @@ impl MetricModule for OutcomesModule {
         push_fast_gain_flag(&mut output, ctx, &w.levels);
         let low_intake = push_intake_flags(&mut output, ctx, data);
         let below_resting = push_below_resting_flag(&mut output, ctx, data, w.current);
-        push_low_bmi_flag(&mut output, ctx, bmi1, &w, profile.age_on(ctx.period.to));
+        push_low_bmi_flag(
+            &mut output,
+            ctx,
+            bmi1,
+            &w,
+            profile.whole_years_on(ctx.period.to),
+        );
         let low_glucose = push_lab_flags(&mut output, &labs, profile.sex);
         // The energy module, when it ran before this one, says when the weight trend implies
         // an intake below a very-low-calorie diet's (its clinical flag): on a glucose-lowering

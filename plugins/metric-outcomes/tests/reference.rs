@@ -1461,3 +1461,35 @@ fn an_hba1c_shown_in_mmol_per_mol_is_not_rounded_across_the_diabetes_cut_off() {
     assert_eq!(lab_shown(LabTest::Hba1c, 6.499, "%", 1), 6.4);
     assert_eq!(lab_shown(LabTest::Hba1c, 6.5, "%", 1), 6.5);
 }
+
+/// Age 70 is reached on the 70th birthday, not the day before: the age was days / 365.2425,
+/// which is 70.00007 on the eve of the birthday of someone born 1958-03-30 (2028-03-29, a
+/// 70-year span with 18 leap days; so for about 47 % of birth dates), and the older adults'
+/// low-BMI cut-off (22) flagged a man at BMI 21.8 still losing, a day early. In whole
+/// completed years he is 69 that day (the general cut-off, 20: no flag) and 70 on the next.
+#[test]
+fn the_older_adults_cut_off_applies_from_the_70th_birthday_not_the_day_before() {
+    let h2 = 1.72 * 1.72;
+    let mut p = participant(Sex::Male, 172.0);
+    p.profile.birth_date = Some(d("1958-03-30"));
+    let (from, eve) = (366, 394);
+    assert_eq!(day(eve), d("2028-03-29"));
+    assert!(p.profile.age_on(day(eve)) >= 70.0);
+    assert_eq!(p.profile.whole_years_on(day(eve)), 69.0);
+    let end = 21.8 * h2;
+    let level = move |k: i64| end + 0.085 * (eve - k) as f64;
+    let falling = |last: i64| {
+        let out = trend_output(last, last, -0.6, level);
+        let mut t = TrendView::from_output(&out).unwrap();
+        t.status = Status::Losing;
+        t.to_output()
+    };
+    p.weights = (from..=eve + 1).map(|k| weigh(day(k), level(k))).collect();
+    let on_eve = run(&ctx(day(from), day(eve), Some(falling(eve))), &p);
+    assert!(on_eve.flags.is_empty(), "{:?}", codes(&on_eve));
+    let on_birthday = run(
+        &ctx(day(from + 1), day(eve + 1), Some(falling(eve + 1))),
+        &p,
+    );
+    assert_eq!(codes(&on_birthday), vec!["low_bmi"]);
+}
