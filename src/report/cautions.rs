@@ -61,6 +61,8 @@ pub enum Clause {
     HighGlucose,
     /// A fasting glucose below the normal range.
     LowGlucose,
+    /// Severe high blood pressure.
+    SevereBp,
     /// A medicine for blood sugar (its own sentence).
     Medication,
     /// A pregnancy (its own sentence).
@@ -69,7 +71,7 @@ pub enum Clause {
 
 impl Clause {
     /// Every clause, in the order the box prints them.
-    pub const ALL: [Clause; 9] = [
+    pub const ALL: [Clause; 10] = [
         Clause::LowIntake,
         Clause::BelowResting,
         Clause::FastChange,
@@ -77,6 +79,7 @@ impl Clause {
         Clause::LowBmi,
         Clause::HighGlucose,
         Clause::LowGlucose,
+        Clause::SevereBp,
         Clause::Medication,
         Clause::Pregnancy,
     ];
@@ -117,6 +120,15 @@ impl Clause {
                         mg / cohortpress_metric_api::units::GLUCOSE_MGDL_PER_MMOLL,
                         1
                     )
+                )
+            }
+            // The `outcomes` module's line (ACC/AHA 2017, from memory, as cited there).
+            Clause::SevereBp => {
+                let (sys, dia) = cohortpress_metric_outcomes::SEVERE_BP_MMHG;
+                format!(
+                    "a blood pressure above {}/{} mmHg",
+                    super::format::int(sys),
+                    super::format::int(dia)
                 )
             }
             Clause::Medication | Clause::Pregnancy => return None,
@@ -203,7 +215,7 @@ pub struct ClinicalFlag {
 /// BMI, lab values in the diabetes range") while a low fasting glucose, a fast rise, a step in
 /// the weigh-ins and eight more were counted too. The participant's cautions name each by its
 /// [`Clause`], so the two lists cannot drift apart.
-pub const CLINICAL_FLAGS: [ClinicalFlag; 13] = [
+pub const CLINICAL_FLAGS: [ClinicalFlag; 14] = [
     ClinicalFlag {
         code: "very_low_intake",
         group: "a very low logged intake",
@@ -258,6 +270,11 @@ pub const CLINICAL_FLAGS: [ClinicalFlag; 13] = [
         code: "lab_low_glucose",
         group: "a fasting glucose below 70 mg/dL (low blood sugar)",
         clause: Clause::LowGlucose,
+    },
+    ClinicalFlag {
+        code: "lab_severe_bp",
+        group: "a blood pressure above 180/120 mmHg",
+        clause: Clause::SevereBp,
     },
     ClinicalFlag {
         code: "medication_review",
@@ -334,7 +351,7 @@ mod tests {
         let text = participant(&t)[2].clone();
         assert_eq!(
             text,
-            "Very low intakes (below about 1,200 kcal a day for women or 1,500 for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about 1 kg (2 lb) a week for several weeks, a sudden jump in your weigh-ins, a BMI under 18.5 (or under 20 while still losing; 22 from age 70), lab values in the prediabetes or diabetes range, and a fasting glucose below 70 mg/dL (3.9 mmol/L) should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy."
+            "Very low intakes (below about 1,200 kcal a day for women or 1,500 for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about 1 kg (2 lb) a week for several weeks, a sudden jump in your weigh-ins, a BMI under 18.5 (or under 20 while still losing; 22 from age 70), lab values in the prediabetes or diabetes range, a fasting glucose below 70 mg/dL (3.9 mmol/L), and a blood pressure above 180/120 mmHg should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy."
         );
         for f in CLINICAL_FLAGS {
             let said = match (f.clause.words(&t), f.clause.sentence()) {

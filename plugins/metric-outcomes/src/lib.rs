@@ -75,6 +75,12 @@
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `lab_low_glucose` (clinical): the latest fasting glucose is below 70 mg/dL (3.9 mmol/L),
 //!   ADA's level 1 hypoglycaemia (also a censored `< 3.0 mmol/L`).
+//! * `lab_severe_bp` (clinical): the latest systolic blood pressure is above 180 mmHg or the
+//!   latest diastolic above 120 mmHg, severe hypertension (the ACC/AHA 2017 guideline's
+//!   "hypertensive crisis", Whelton et al. 2018, Hypertension 71:e13; from memory): a reading
+//!   for a licensed clinician soon, and no time to start eating less or walking more on a
+//!   report's suggestion (the report holds its suggestions). The table still shows blood
+//!   pressure as `recorded`, with no class below that level.
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
 //!   `fast_loss`, `low_intake`, `very_low_intake`, `below_resting_intake` or `lab_low_glucose`
 //!   was raised, or the `energy` module (when it
@@ -396,6 +402,11 @@ fn fasting_glucose_class(mmol_l: f64) -> LabCategory {
 /// memory). A fasting value this low in someone losing weight on a reduced intake (or taking a
 /// glucose-lowering drug) is for a licensed clinician, not "normal".
 pub const LOW_GLUCOSE_MG_DL: f64 = 70.0;
+
+/// Systolic and diastolic blood pressure above which a reading is severe hypertension, mmHg:
+/// the ACC/AHA 2017 guideline's "hypertensive crisis", above 180 and/or above 120 (Whelton et
+/// al. 2018, Hypertension 71:e13; from memory).
+pub const SEVERE_BP_MMHG: (f64, f64) = (180.0, 120.0);
 
 /// Waist-circumference risk category (Europid cut points): `not_increased_risk`,
 /// `increased_risk` or `substantially_increased_risk`.
@@ -864,6 +875,12 @@ impl MetricModule for OutcomesModule {
                     "flag",
                     "",
                     "latest fasting glucose below 70 mg/dL (3.9 mmol/L), low blood sugar",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::LabSevereBp.as_str(),
+                    "flag",
+                    "",
+                    "latest blood pressure above 180 mmHg systolic or 120 mmHg diastolic",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::FastGain.as_str(),
@@ -1791,11 +1808,49 @@ fn cut_words(v: f64) -> String {
 /// `lab_low_glucose` was raised.
 fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Sex>) -> bool {
     let mut low_glucose = false;
+    // One reading, systolic and diastolic: one flag naming what is above the line.
+    let mut severe_bp: Vec<String> = Vec::new();
     let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
     for l in labs {
         latest.insert(l.test, l);
     }
     for l in latest.values() {
+        // Above the severe-hypertension line (strictly: 180/120 itself is not above it; a
+        // censored `> 180` is above it, a `< 190` is not known to be).
+        let severe_cut = match l.test {
+            LabTest::SystolicBp => Some(SEVERE_BP_MMHG.0),
+            LabTest::DiastolicBp => Some(SEVERE_BP_MMHG.1),
+            _ => None,
+        };
+        if let Some(cut) = severe_cut {
+            let above = match l.censored {
+                None | Some(Censor::AtLeast) => l.value > cut + CUT_EPS,
+                Some(Censor::Above) => l.value >= cut - CUT_EPS,
+                Some(Censor::Below) | Some(Censor::AtMost) => false,
+            };
+            if above {
+                let q = l
+                    .censored
+                    .map_or(String::new(), |c| format!("{} ", c.symbol()));
+                // Whole mmHg as measured; a decimal only when the value has one, so that 180.4
+                // is not printed "180" beside "above 180".
+                let shown = if (l.value - l.value.round()).abs() < 1e-9 {
+                    format!("{:.0}", l.value)
+                } else {
+                    format!("{:.1}", l.value)
+                };
+                severe_bp.push(format!(
+                    "{} {q}{shown} mmHg on {}",
+                    if l.test == LabTest::SystolicBp {
+                        "systolic"
+                    } else {
+                        "diastolic"
+                    },
+                    l.date
+                ));
+            }
+            continue;
+        }
         let category = lab_category(l, sex);
         let (code, severity) = match category {
             LabCategory::DiabetesRange => (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical),
@@ -1829,6 +1884,21 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Se
                 test_words(l.test),
                 l.date,
                 category.label(),
+            ),
+        );
+    }
+    if !severe_bp.is_empty() {
+        let (sys, dia) = SEVERE_BP_MMHG;
+        output.push_flag(
+            OutcomesFlag::LabSevereBp.as_str(),
+            FlagSeverity::Clinical,
+            format!(
+                "The most recent blood pressure ({}) is above {sys}/{dia} mmHg, a level counted \
+                 as severe high blood pressure (ACC/AHA 2017). Please have it checked by a \
+                 licensed clinician soon, before changing how you eat or how active you are; \
+                 with chest pain, shortness of breath, a severe headache, or changes in vision \
+                 or speech, seek urgent care.",
+                severe_bp.join(" and ")
             ),
         );
     }

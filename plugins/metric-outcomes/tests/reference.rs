@@ -1493,3 +1493,53 @@ fn the_older_adults_cut_off_applies_from_the_70th_birthday_not_the_day_before() 
     );
     assert_eq!(codes(&on_birthday), vec!["low_bmi"]);
 }
+
+/// A blood pressure of 182/121 mmHg was only "recorded": no flag, nothing for a clinician, and
+/// the report went on to suggest eating less or walking more. Above 180 systolic or 120
+/// diastolic is severe hypertension (ACC/AHA 2017, Whelton et al. 2018; from memory): one
+/// clinical flag names the reading; 180/120 itself, and a lower reading, raise none.
+#[test]
+fn a_blood_pressure_above_180_over_120_is_flagged_for_a_clinician() {
+    let mut p = steady_loser();
+    p.labs = vec![
+        lab(10, LabTest::SystolicBp, 182.0, "mmHg", 182.0),
+        lab(10, LabTest::DiastolicBp, 121.0, "mmHg", 121.0),
+    ];
+    let out = run(&ctx(day(0), day(40), None), &p);
+    let severe: Vec<_> = out
+        .flags
+        .iter()
+        .filter(|f| f.code == "lab_severe_bp")
+        .collect();
+    assert_eq!(severe.len(), 1, "{:?}", out.flags);
+    assert_eq!(severe[0].severity, FlagSeverity::Clinical);
+    assert!(
+        severe[0].message.starts_with(
+            "The most recent blood pressure (systolic 182 mmHg on 2027-03-11 and diastolic 121 mmHg on 2027-03-11) is above 180/120 mmHg"
+        ),
+        "{}",
+        severe[0].message
+    );
+    // Diastolic alone above the line.
+    p.labs = vec![
+        lab(10, LabTest::SystolicBp, 150.0, "mmHg", 150.0),
+        lab(10, LabTest::DiastolicBp, 125.0, "mmHg", 125.0),
+    ];
+    let out = run(&ctx(day(0), day(40), None), &p);
+    assert!(
+        out.flags.iter().any(|f| f.code == "lab_severe_bp"
+            && f.message.contains("(diastolic 125 mmHg on 2027-03-11)"))
+    );
+    // On the line, or an older high reading followed by a lower one: no flag.
+    p.labs = vec![
+        lab(5, LabTest::SystolicBp, 190.0, "mmHg", 190.0),
+        lab(10, LabTest::SystolicBp, 180.0, "mmHg", 180.0),
+        lab(10, LabTest::DiastolicBp, 120.0, "mmHg", 120.0),
+    ];
+    let out = run(&ctx(day(0), day(40), None), &p);
+    assert!(
+        out.flags.iter().all(|f| f.code != "lab_severe_bp"),
+        "{:?}",
+        out.flags
+    );
+}
