@@ -1478,6 +1478,20 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         );
         return g;
     }
+    // The pace the options are sized for is itself beyond the safe limit at this weight (1 %
+    // of 36 kg is 0.36 kg a week, under the default 0.5; a program's `target_loss_kg_per_week`
+    // of 0.75 does the same for anyone under 75 kg): no amount of weigh-ins makes it safe, so
+    // the report says so, rather than that the estimate is too uncertain (a woman of 120 cm and
+    // 36 kg read "still too uncertain … A few more weeks of regular weigh-ins will narrow it";
+    // hand-made participant SHORT, clinical28 helper).
+    if target > max + PACE_EPS {
+        g.paragraphs.push(format!(
+            "The suggestions here are sized for a loss of {}, which is faster than the usual safe limit at your weight of about {}, so this report suggests no amount. A slower pace may suit you better; the program staff can help you find one.",
+            rate_words(target, f.units),
+            rate_words_to(max, f.units, if rate_words(target, f.units) == rate_words(max, f.units) { 2 } else { 1 })
+        ));
+        return g;
+    }
     // Beyond the limit by more than round-off (see `too_fast`).
     if rate_fast > max + PACE_EPS {
         g.paragraphs.push(format!(
@@ -2835,6 +2849,38 @@ mod tests {
             "{all}"
         );
         assert!(!all.contains(" kcal"), "{all}");
+    }
+
+    /// The pace the options are sized for (0.5 kg a week) above the safe limit at the person's
+    /// weight (1 % of 36 kg): the report said the estimate was "still too uncertain … A few
+    /// more weeks of regular weigh-ins will narrow it", which no weigh-ins could.
+    #[test]
+    fn a_target_pace_beyond_the_safe_limit_is_not_called_an_uncertain_estimate() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.weight_kg = Some(36.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert!(g.options.is_empty());
+        let all = g.paragraphs.join(" ");
+        assert!(
+            !all.contains("too uncertain") && !all.contains("narrow it"),
+            "{all}"
+        );
+        assert!(
+            all.contains("sized for a loss of 0.5 kg a week, which is faster than the usual safe limit at your weight of about 0.4 kg a week, so this report suggests no amount"),
+            "{all}"
+        );
+        // At 80 kg the limit is 0.8 kg a week: the uncertain-slope reason stays for a wide slope.
+        f.weight_kg = Some(80.0);
+        f.slope = Some(Est {
+            value: 0.0,
+            lower: Some(-0.5),
+            upper: Some(0.5),
+        });
+        let all = compose(Phase::RestartLoss, &st(Plateau), &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(all.contains("too uncertain"), "{all}");
     }
 
     #[test]
