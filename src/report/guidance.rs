@@ -1114,11 +1114,21 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     g
 }
 
+/// Why a loss in the maintenance phase should stop, when it is not only the reader's wish.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum StopLoss {
+    /// Faster than the safe pace.
+    TooFast,
+    /// From 70 at a BMI below the older adults' loss cut-off: loss costs muscle (ESPEN
+    /// geriatrics guideline, Volkert et al. 2019, Clin Nutr 38:10–47).
+    Older,
+}
+
 fn maintain_sentence(
     f: &Facts,
     floor: f64,
     losing: bool,
-    too_fast: bool,
+    stop: Option<StopLoss>,
     t: &Thresholds,
 ) -> Option<String> {
     let tdee = f.tdee?;
@@ -1206,13 +1216,17 @@ fn maintain_sentence(
         // (the smallest deficit the interval allows).
         let more = fmt::floor_to(-upper, KCAL_STEP);
         if more >= t.min_intake_change_kcal {
-            // Stopping a loss past the safe pace is not left to the reader's wishes.
+            // Stopping a loss past the safe pace is not left to the reader's wishes, nor is
+            // one from 70 at a BMI where losing is not advised (a woman of 70 at BMI 28.7
+            // losing 0.5 kg a week read "If you would like to stop losing"; hand-made
+            // BMI30OLDLOSE, clinical28 helper).
             s.push_str(&format!(
                 " {}, eating about {} a day more than now is a safe first step.",
-                if too_fast {
-                    "To slow the loss"
-                } else {
-                    "If you would like to stop losing"
+                match stop {
+                    Some(StopLoss::TooFast) => "To slow the loss",
+                    Some(StopLoss::Older) =>
+                        "From the age of 70, a continuing loss at your BMI costs muscle that is hard to regain; to stop it",
+                    None => "If you would like to stop losing",
                 },
                 fmt::kcal(more)
             ));
@@ -1345,7 +1359,14 @@ fn maintain(
             g.paragraphs.push(pace_caution(max, f, decimals));
         }
     }
-    if let Some(s) = maintain_sentence(f, floor, losing, fast.is_some(), t) {
+    let stop = if fast.is_some() {
+        Some(StopLoss::TooFast)
+    } else if state.older && state.bmi.is_some_and(|b| bmi_below(b, t.loss_cut(true))) {
+        Some(StopLoss::Older)
+    } else {
+        None
+    };
+    if let Some(s) = maintain_sentence(f, floor, losing, stop, t) {
         g.paragraphs.push(s);
     }
     if state.status == TrendStatus::Insufficient {
@@ -2881,6 +2902,49 @@ mod tests {
             .paragraphs
             .join(" ");
         assert!(all.contains("too uncertain"), "{all}");
+    }
+
+    /// From 70 at a BMI below the older adults' loss cut-off (30), stopping a loss is not left
+    /// to the reader's wishes: a woman of 70 at BMI 28.7, past her target and losing 0.5 kg a
+    /// week, read "If you would like to stop losing, eating about 400 kcal a day more".
+    #[test]
+    fn from_70_below_the_older_cut_off_stopping_a_loss_is_not_a_wish() {
+        let t = Thresholds::default();
+        let mut s = st(Losing);
+        s.bmi = Some(28.7);
+        s.change_percent = Some(-8.0);
+        s.older = true;
+        let mut f = facts();
+        f.slope = Some(Est {
+            value: -0.5,
+            lower: Some(-0.6),
+            upper: Some(-0.4),
+        });
+        f.balance = Some(Est {
+            value: -550.0,
+            lower: Some(-700.0),
+            upper: Some(-400.0),
+        });
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(!all.contains("If you would like"), "{all}");
+        assert!(
+            all.contains("From the age of 70, a continuing loss at your BMI costs muscle that is hard to regain; to stop it, eating about 400 kcal a day more than now is a safe first step."),
+            "{all}"
+        );
+        // Under 70, or from 70 at BMI 30 or more, it stays the reader's choice.
+        s.older = false;
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(all.contains("If you would like to stop losing"), "{all}");
+        s.older = true;
+        s.bmi = Some(31.0);
+        let all = compose(Phase::Maintain(MaintainWhy::TargetReached), &s, &t, &f)
+            .paragraphs
+            .join(" ");
+        assert!(all.contains("If you would like to stop losing"), "{all}");
     }
 
     #[test]
