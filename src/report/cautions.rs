@@ -67,11 +67,13 @@ pub enum Clause {
     Medication,
     /// A pregnancy (its own sentence).
     Pregnancy,
+    /// Breastfeeding (its own sentence).
+    Breastfeeding,
 }
 
 impl Clause {
     /// Every clause, in the order the box prints them.
-    pub const ALL: [Clause; 10] = [
+    pub const ALL: [Clause; 11] = [
         Clause::LowIntake,
         Clause::BelowResting,
         Clause::FastChange,
@@ -82,6 +84,7 @@ impl Clause {
         Clause::SevereBp,
         Clause::Medication,
         Clause::Pregnancy,
+        Clause::Breastfeeding,
     ];
 
     /// The clause's words in the list, with the program's thresholds; `None` for a clause
@@ -131,7 +134,7 @@ impl Clause {
                     super::format::int(dia)
                 )
             }
-            Clause::Medication | Clause::Pregnancy => return None,
+            Clause::Medication | Clause::Pregnancy | Clause::Breastfeeding => return None,
         })
     }
 
@@ -143,6 +146,9 @@ impl Clause {
             ),
             Clause::Pregnancy => Some(
                 "If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy.",
+            ),
+            Clause::Breastfeeding => Some(
+                "If you are breastfeeding, they do not apply either: making milk takes energy these figures do not count, and your clinician or midwife guides eating then.",
             ),
             _ => None,
         }
@@ -215,7 +221,7 @@ pub struct ClinicalFlag {
 /// BMI, lab values in the diabetes range") while a low fasting glucose, a fast rise, a step in
 /// the weigh-ins and eight more were counted too. The participant's cautions name each by its
 /// [`Clause`], so the two lists cannot drift apart.
-pub const CLINICAL_FLAGS: [ClinicalFlag; 14] = [
+pub const CLINICAL_FLAGS: [ClinicalFlag; 15] = [
     ClinicalFlag {
         code: "very_low_intake",
         group: "a very low logged intake",
@@ -286,6 +292,11 @@ pub const CLINICAL_FLAGS: [ClinicalFlag; 14] = [
         group: "a pregnancy noted in the profile",
         clause: Clause::Pregnancy,
     },
+    ClinicalFlag {
+        code: "breastfeeding",
+        group: "breastfeeding noted in the profile",
+        clause: Clause::Breastfeeding,
+    },
 ];
 
 #[cfg(test)]
@@ -351,7 +362,7 @@ mod tests {
         let text = participant(&t)[2].clone();
         assert_eq!(
             text,
-            "Very low intakes (below about 1,200 kcal a day for women or 1,500 for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about 1 kg (2 lb) a week for several weeks, a sudden jump in your weigh-ins, a BMI under 18.5 (or under 20 while still losing; 22 from age 70), lab values in the prediabetes or diabetes range, a fasting glucose below 70 mg/dL (3.9 mmol/L), and a blood pressure above 180/120 mmHg should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy."
+            "Very low intakes (below about 1,200 kcal a day for women or 1,500 for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about 1 kg (2 lb) a week for several weeks, a sudden jump in your weigh-ins, a BMI under 18.5 (or under 20 while still losing; 22 from age 70), lab values in the prediabetes or diabetes range, a fasting glucose below 70 mg/dL (3.9 mmol/L), and a blood pressure above 180/120 mmHg should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy. If you are breastfeeding, they do not apply either: making milk takes energy these figures do not count, and your clinician or midwife guides eating then."
         );
         for f in CLINICAL_FLAGS {
             let said = match (f.clause.words(&t), f.clause.sentence()) {

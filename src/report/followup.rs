@@ -121,6 +121,9 @@ pub fn reason(code: &str) -> &'static str {
             "Weigh-ins jumped by several kilograms within days and stayed there (a new scale, or a real change of fluid or weight?)"
         }
         "pregnancy" => "Pregnancy noted in the profile: the report makes no suggestions for change",
+        "breastfeeding" => {
+            "Breastfeeding noted in the profile: the report makes no suggestions for change"
+        }
         LABS_NOT_READ => {
             "Lab results that could not be read, so they were not checked against the diabetes range or any other cut-off: check the values in labs.csv"
         }

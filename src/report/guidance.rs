@@ -8,7 +8,7 @@
 //! | # | state | phase | the report offers |
 //! |---|---|---|---|
 //! | 1 | left the program on or before the period's end | `withdrawn` | a factual summary and a pointer to the program staff; no advice |
-//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy, a fasting glucose below 70 mg/dL, a blood pressure above 180/120 mmHg), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
+//! | 2 | a clinical flag that holds advice (fast loss, fast gain, low or very low intake, intake below resting energy, low BMI, medication review, pregnancy, breastfeeding, a fasting glucose below 70 mg/dL, a blood pressure above 180/120 mmHg), or BMI below `underweight_bmi_below` | `clinician` | a pointer to the program staff and a licensed clinician; no advice |
 //! | 3 | weight trend rising over the last four weeks, or a rise from the lowest trend weight confirmed by level while the last four weeks cannot say more (too few weigh-ins, or unclear) or show it still going up (slope interval above zero, within the plateau band) | `regain` | what stops the rise (intake or walking that holds the current weight), before anything else; no amount while the last four weeks cannot tell whether it goes on, only more weigh-ins |
 //! | 3a | the same at a BMI below `low_bmi_losing_below` (20; from age 70 the higher `low_bmi_losing_below_70_plus`, 22) | `maintain` | that a rise at that BMI is no cause for concern; nothing to stop it |
 //! | 4 | no BMI or weight change | `too_little_data` | how to get a reading next month (in the program's last report, that it is the last); no amounts |
@@ -52,7 +52,7 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 13] = [
+pub const HOLDING_FLAGS: [&str; 14] = [
     "fast_loss",
     "fast_gain",
     // Clinical only in the period a step in the weigh-ins is first found: it may be a real
@@ -71,6 +71,9 @@ pub const HOLDING_FLAGS: [&str; 13] = [
     "low_bmi",
     "medication_review",
     "pregnancy",
+    // Milk takes energy the model does not count, and the floors are for adults who are not
+    // breastfeeding (outcomes module; IOM 2005, from memory).
+    "breastfeeding",
     // A fasting glucose below 70 mg/dL (3.9 mmol/L), level 1 hypoglycaemia (ADA Standards of
     // Care 2025, §6; from memory): eating less or moving more lowers blood sugar further
     // (common practice), so the way to a suggestion is through a clinician. A lab value in the
@@ -1787,6 +1790,11 @@ mod tests {
             ),
             // A blood pressure of 182/121 mmHg was only "recorded", and the report suggested
             // eating less or walking more (hand-made participant BP, clinical28 helper).
+            (
+                "breastfeeding holds advice",
+                with(&|s| s.clinical_flags = vec!["breastfeeding".into()], Losing),
+                Phase::Clinician,
+            ),
             (
                 "a blood pressure above 180/120 mmHg holds advice",
                 with(

@@ -109,6 +109,11 @@
 //! * `pregnancy` (clinical): the profile carries `pregnant`. Loss targets, the intake floors
 //!   and the energy model are for adults who are not pregnant, so the report holds every
 //!   suggestion and points to a clinician.
+//! * `breastfeeding` (clinical): the profile carries `breastfeeding`. Milk takes energy the
+//!   energy model does not count (a lactating woman's requirement is several hundred kcal a day
+//!   above her non-lactating one: IOM 2005, Dietary Reference Intakes for Energy; from memory),
+//!   and the intake floors are for adults who are not breastfeeding, so the report holds every
+//!   suggestion and points to a clinician or midwife.
 //! * `insufficient_data` (info): no weigh-in yet.
 //!
 //! # Cut points
@@ -177,6 +182,8 @@ pub const BELOW_RESTING_MIN_LOGGED_DAYS: usize = 8;
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
 /// Profile flag for a pregnancy.
 pub const PREGNANCY_FLAG: &str = "pregnant";
+/// Profile flag for breastfeeding.
+pub const BREASTFEEDING_FLAG: &str = "breastfeeding";
 /// Default of `underweight_bmi_below`, kg/m²: below it `low_bmi` is raised whatever the trend
 /// (WHO 2000, Technical Report Series 894: underweight is BMI < 18.5).
 pub const UNDERWEIGHT_BMI_BELOW: f64 = 18.5;
@@ -895,6 +902,12 @@ impl MetricModule for OutcomesModule {
                     "pregnancy noted in the profile (holds every suggestion)",
                 ),
                 OutputSpec::new(
+                    OutcomesFlag::Breastfeeding.as_str(),
+                    "flag",
+                    "",
+                    "breastfeeding noted in the profile (holds every suggestion)",
+                ),
+                OutputSpec::new(
                     OutcomesFlag::MedicationReview.as_str(),
                     "flag",
                     "",
@@ -995,6 +1008,19 @@ impl MetricModule for OutcomesModule {
                 "The profile notes a pregnancy. Weight change and eating during pregnancy \
                  should be guided by a licensed clinician or midwife; this report's loss \
                  targets and estimates are for adults who are not pregnant.",
+            );
+        }
+        if profile.flags.iter().any(|f| f == BREASTFEEDING_FLAG) {
+            // Milk takes energy the model does not count (IOM 2005 DRI for energy: several
+            // hundred kcal a day; from memory), and the floors are for adults who are not
+            // breastfeeding: the report holds every suggestion (common practice).
+            output.push_flag(
+                OutcomesFlag::Breastfeeding.as_str(),
+                FlagSeverity::Clinical,
+                "The profile notes breastfeeding. Making milk takes several hundred kcal a day \
+                 that this report's energy figures do not count, and its intake floors are for \
+                 adults who are not breastfeeding; eating and weight while breastfeeding \
+                 should be guided by a licensed clinician or midwife.",
             );
         }
         Ok(output)

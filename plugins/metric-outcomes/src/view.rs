@@ -140,6 +140,8 @@ code_enum! {
         FastGain = "fast_gain" => "Fast gain",
         /// The profile notes a pregnancy.
         Pregnancy = "pregnancy" => "Pregnancy noted in the profile",
+        /// The profile notes breastfeeding.
+        Breastfeeding = "breastfeeding" => "Breastfeeding noted in the profile",
         /// Intake below resting energy expenditure over the last four weeks, on the weight
         /// trend's evidence (alone, or agreeing with the food log).
         BelowRestingIntake = "below_resting_intake" => "Intake below resting energy for weeks",

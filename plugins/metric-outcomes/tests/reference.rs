@@ -1128,6 +1128,26 @@ fn pregnancy_in_the_profile_is_a_clinical_flag() {
     assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
 }
 
+/// Breastfeeding was an unknown profile flag ("it changes nothing in the reports"): a woman
+/// breastfeeding and losing 0.6 kg a week on a logged 1,300 kcal a day was told how much more
+/// would hold her weight by a model that does not count the energy that goes into milk (hand-
+/// made BREASTFEED, clinical28 helper). It raises a clinical flag, which holds every suggestion.
+#[test]
+fn breastfeeding_in_the_profile_is_a_clinical_flag() {
+    let mut p = steady_loser();
+    let c = |t| ctx(day(0), day(30), Some(t));
+    let steady = trend_output(30, 30, -0.875, |k| 100.0 - 0.125 * k as f64);
+    p.profile.flags = vec!["breastfeeding".into()];
+    let out = run(&c(steady), &p);
+    assert_eq!(codes(&out), vec!["breastfeeding"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    assert!(
+        out.flags[0]
+            .message
+            .contains("licensed clinician or midwife")
+    );
+}
+
 /// A trend that rises 1.4 kg a week (a 10 kg step in the weigh-ins reads like this) raises a
 /// clinical `fast_gain` flag; a rise of 0.5 kg a week does not.
 #[test]
