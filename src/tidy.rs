@@ -59,16 +59,17 @@ pub struct TidyParticipant {
     /// weights.csv's data rows (rows dropped for their shape included; not blank lines,
     /// repeated headers, date rows or summary rows); `None` when the file is absent.
     pub weights_rows_in_file: Option<usize>,
-    /// weights.csv's rows used: weigh-ins after duplicates and the rows outside the
-    /// participant's window are left out; 0 when the file is refused as a whole.
+    /// weights.csv's rows used by the period's figures: weigh-ins after duplicates and the rows
+    /// outside the participant's window are left out, and only those dated up to the period's
+    /// end count; 0 when the file is refused as a whole.
     pub weights_rows_used: Option<usize>,
     /// intake.csv's data rows, as `weights_rows_in_file` (a day's total row is a summary row).
     pub intake_rows_in_file: Option<usize>,
-    /// intake.csv's rows used, before they are summed by day.
+    /// intake.csv's rows used (up to the period's end), before they are summed by day.
     pub intake_rows_used: Option<usize>,
     /// activity.csv's data rows, as `weights_rows_in_file`.
     pub activity_rows_in_file: Option<usize>,
-    /// activity.csv's rows used.
+    /// activity.csv's rows used (up to the period's end).
     pub activity_rows_used: Option<usize>,
 }
 
@@ -97,7 +98,7 @@ pub struct ReportOffers {
     pub intake: bool,
     /// Walking more alone (the `walking` row).
     pub walking: bool,
-    /// A change of both ("some of each"; the `combined` row, when the module gives one).
+    /// Some of each (the `combined` row, which the module sizes as the report does).
     pub both: bool,
 }
 
@@ -810,9 +811,11 @@ pub fn datapackage(
             )
         } else {
             format!(
-                "rows of {file}.csv used: {}; {file}_rows_in_file minus this is the rows \
-                 dropped for any reason, each named in data-quality.csv (capped per kind); 0 \
-                 when the file is refused as a whole, empty when it is absent",
+                "rows of {file}.csv used by the period's figures: {}, dated up to the \
+                 period's end; {file}_rows_in_file minus this is the rows dropped for any \
+                 reason, each named in data-quality.csv (capped per kind), and the rows dated \
+                 after the period's end (read, used by no figure of the period); 0 when the \
+                 file is refused as a whole, empty when it is absent",
                 match file {
                     "weights" =>
                         "the weigh-ins kept after duplicates and the rows outside the participant's window are left out",
@@ -923,8 +926,9 @@ pub fn datapackage(
                     "column name; each row of energy.options also has the column \
                      offered_in_report (not the module's own): yes when the participant's report \
                      offered that option under \"What to try next\" (intake: eating less alone; \
-                     walking: walking more alone; combined: a change of both, which the report \
-                     sizes its own way, so its amounts are not the row's), else no. feasible is \
+                     walking: walking more alone; combined: some of each, half the intake change \
+                     within the floor and walking for the rest, as the report sizes it), else \
+                     no. feasible is \
                      the module's verdict by its own limits; the report offers fewer: none in a \
                      report that does not suggest restarting a loss, no intake change under \
                      guidance.min_intake_change_kcal or taking the logged intake below the floor, \

@@ -324,6 +324,87 @@ fn unclosed_quote(
     )
 }
 
+/// A quote inside a quoted value (`name: "Ann "the" Smith"`): the inner quote ends the value,
+/// and the parser's words were "invalid trailing content after double-quoted scalar", with the
+/// hint to check indentation, which does not fit (tryout24). The diagnostic points at the quote
+/// that ended the value and gives the two ways to write it, built from the line when the value
+/// ends on it. `None` for other errors, or when no such quote precedes `line`, `col` (1-based
+/// line, 0-based column).
+fn quote_inside_quoted(
+    text: &str,
+    file: &str,
+    info: &str,
+    line: usize,
+    col: usize,
+) -> Option<Diagnostic> {
+    if !info.contains("trailing content after") || !info.contains("quoted scalar") {
+        return None;
+    }
+    let l = text.lines().nth(line.checked_sub(1)?)?;
+    let chars: Vec<char> = l.chars().collect();
+    // The kind of quote is the one that ended the value, the last before the trailing text
+    // (the parser says "double-quoted" after a single-quoted value too).
+    let quote = *chars[..col.min(chars.len())]
+        .iter()
+        .rev()
+        .find(|c| matches!(c, '"' | '\''))?;
+    let escaped = |i: usize| quote == '"' && i > 0 && chars[i - 1] == '\\';
+    // The quote that ended the value, and the one that opened it.
+    let end = (0..col.min(chars.len()))
+        .rev()
+        .find(|&i| chars[i] == quote && !escaped(i))?;
+    let open = (0..end).rev().find(|&i| chars[i] == quote && !escaped(i))?;
+    let written: String = chars[open..]
+        .iter()
+        .collect::<String>()
+        .trim_end()
+        .to_string();
+    let shown: String = written.chars().take(80).collect();
+    let other = if quote == '"' { '\'' } else { '"' };
+    // The value as meant: from the opening quote to the last one on the line, when the line
+    // ends with it.
+    let inner: Option<String> = written
+        .strip_suffix(quote)
+        .filter(|w| w.chars().count() > 1)
+        .map(|w| w.chars().skip(1).collect());
+    let how = match (quote, inner) {
+        ('"', Some(v)) => format!(
+            "put the value in single quotes (`'{}'`), or escape each quote inside it as \\\" \
+             (`\"{}\"`)",
+            v.replace('\'', "''"),
+            v.replace("\\\"", "\"").replace('"', "\\\"")
+        ),
+        ('"', None) => {
+            "put the value in single quotes, or escape each quote inside it as \\\"".to_string()
+        }
+        (_, Some(v)) => {
+            let meant = v.replace("''", "'");
+            format!(
+                "write each ' inside it twice (`'{}'`), or put the value in double quotes \
+                 (`\"{}\"`)",
+                meant.replace('\'', "''"),
+                meant.replace('\\', "\\\\").replace('"', "\\\"")
+            )
+        }
+        (_, None) => "write each ' inside it twice, or put the value in double quotes".to_string(),
+    };
+    Some(
+        Diagnostic::error(
+            file,
+            format!(
+                "a quote ({quote}) inside the quoted value ends it early: the text after it \
+                 cannot follow"
+            ),
+        )
+        .at(line as u64, Some(end as u64 + 1))
+        .expected(format!(
+            "a quoted value whose quotes inside are escaped or of the other kind ({other})"
+        ))
+        .found(format!("`{shown}`"))
+        .hint(how),
+    )
+}
+
 /// Walks the event stream of `text` once, refusing it (with the line and column where a limit
 /// was passed) when it has more than [`MAX_YAML_EVENTS`] events, more than [`MAX_YAML_ALIASES`]
 /// aliases, lists or mappings nested deeper than [`MAX_YAML_DEPTH`], or more than
@@ -395,7 +476,9 @@ pub fn check_budget(text: &str, file: &str) -> Result<(), Diagnostic> {
                     .found(format!("`{name}`"))
                     .hint("a value starting with `*` is a YAML alias; quote it if it is text (\"*…\")"));
                 }
-                if let Some(d) = unclosed_quote(text, file, e.info(), m.line(), m.col()) {
+                if let Some(d) = unclosed_quote(text, file, e.info(), m.line(), m.col())
+                    .or_else(|| quote_inside_quoted(text, file, e.info(), m.line(), m.col()))
+                {
                     return Err(d);
                 }
                 return Err(Diagnostic::error(file, format!("not valid YAML: {}", e.info()))
@@ -1025,9 +1108,60 @@ mod tests {
         let d = err("id: SG-006\nsex: female\nname: 'Ann Smith\n");
         assert_eq!((d.line, d.column), (Some(3), Some(7)), "{d}");
         assert!(d.message.contains("quote (') is not closed"), "{d}");
-        // Closed on its line: another problem, the parser's words.
+        // Closed on its line: another problem (a quote inside the value), not this one.
         let d = err("name: \"Ann \"the\" Smith\"\n");
-        assert!(d.message.starts_with("not valid YAML"), "{d}");
+        assert!(!d.message.contains("not closed"), "{d}");
+    }
+
+    /// A quote inside a double-quoted value (`name: "Ann "the" Smith"`) read "not valid YAML:
+    /// invalid trailing content after double-quoted scalar" with the hint to check indentation
+    /// (tryout24). It now says that the inner quote ends the value early, at the line and column
+    /// of that quote, with the two ways to write it; the same for single quotes.
+    #[test]
+    fn a_quote_inside_a_quoted_value_is_named_with_how_to_write_it() {
+        let err = |text: &str| value_from_str(text, "profile.yaml").unwrap_err();
+        let d = err("id: SG-006\nname: \"Ann \"the\" Smith\"\nsex: female\n");
+        assert_eq!(
+            d.message,
+            "a quote (\") inside the quoted value ends it early: the text after it cannot follow"
+        );
+        assert_eq!(d.file, "profile.yaml");
+        // The quote after `Ann `: line 2, column 12.
+        assert_eq!((d.line, d.column), (Some(2), Some(12)), "{d}");
+        assert_eq!(d.found.as_deref(), Some("`\"Ann \"the\" Smith\"`"));
+        assert_eq!(
+            d.expected.as_deref(),
+            Some("a quoted value whose quotes inside are escaped or of the other kind (')")
+        );
+        let hint = d.hint.as_deref().unwrap();
+        assert_eq!(
+            hint,
+            "put the value in single quotes \
+             (`'Ann \"the\" Smith'`), or escape each quote inside it as \\\" \
+             (`\"Ann \\\"the\\\" Smith\"`)"
+        );
+        assert!(!hint.contains("indentation"), "{hint}");
+        // Either way it suggests reads back as the name written.
+        for fixed in [
+            "name: 'Ann \"the\" Smith'\n",
+            "name: \"Ann \\\"the\\\" Smith\"\n",
+        ] {
+            let v = value_from_str(fixed, "profile.yaml").unwrap();
+            assert_eq!(v["name"].as_str(), Some("Ann \"the\" Smith"), "{fixed}");
+        }
+        // Single quotes: a quote inside is written twice.
+        let d = err("name: 'Ann O'Brien'\n");
+        assert_eq!((d.line, d.column), (Some(1), Some(13)), "{d}");
+        assert!(d.message.contains("quote (')"), "{d}");
+        assert_eq!(
+            d.hint.as_deref(),
+            Some(
+                "write each ' inside it twice \
+                 (`'Ann O''Brien'`), or put the value in double quotes (`\"Ann O'Brien\"`)"
+            )
+        );
+        let v = value_from_str("name: 'Ann O''Brien'\n", "profile.yaml").unwrap();
+        assert_eq!(v["name"].as_str(), Some("Ann O'Brien"));
     }
 
     #[test]

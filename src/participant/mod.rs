@@ -67,8 +67,9 @@ pub struct LoadedParticipant {
 
 /// Of one input file: its data rows as the table reader sees them, rows dropped for their
 /// shape included (not blank lines, repeated headers, title lines, date rows or summary rows),
-/// and the rows its parser kept at its end. Both `None` when the file is absent; `in_file`
-/// `None` and `used` 0 when it could not be read as text at all.
+/// and the rows its parser kept at its end that are dated up to the end of the period a run
+/// reports (rows after it are read, but no figure of the period uses them). Both `None` when
+/// the file is absent; `in_file` `None` and `used` 0 when it could not be read as text at all.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct RowCount {
     /// Data rows in the file.
@@ -754,15 +755,19 @@ pub fn load_participant(
     load_opened(program, dir, open(dir), as_of, None)
 }
 
-/// [`load_participant`] of a folder already opened and listed, for a run reporting the period
-/// beginning on `reported_from` (`None`: for `check`; see [`records::Window::reported_from`]).
+/// [`load_participant`] of a folder already opened and listed, for a run reporting `period`
+/// (`None`: for `check`; see [`records::Window::reported_from`]). The rows used that
+/// [`RowCount`] gives are those dated up to the period's end: rows after it, up to `as_of`,
+/// are read and checked, but no figure of the period uses them.
 pub fn load_opened(
     program: &Program,
     dir: &ParticipantDir,
     opened: OpenedDir,
     as_of: NaiveDate,
-    reported_from: Option<NaiveDate>,
+    period: Option<cohortpress_metric_api::Period>,
 ) -> LoadedParticipant {
+    let reported_from = period.map(|p| p.from);
+    let counted_to = period.map(|p| p.to);
     let id = dir.id.as_str();
     let rel = |name: &str| format!("{PARTICIPANTS_DIR}/{id}/{name}");
     let mut diags = Vec::new();
@@ -984,9 +989,15 @@ pub fn load_opened(
                 ),
                 Some(Ok(text)) => {
                     let parsed = $parse(&text, &opts, &ctx, &window, &mut diags);
-                    let used = parsed
-                        .as_ref()
-                        .map_or(0, |v| ctx.rows_used().unwrap_or(v.len()));
+                    // Rows after the period's end are read (checked, and kept for the
+                    // run's notes) but used by no figure of the period: not counted.
+                    let used = parsed.as_ref().map_or(0, |v| {
+                        ctx.rows_used_to(counted_to).unwrap_or_else(|| {
+                            v.iter()
+                                .filter(|r| counted_to.is_none_or(|to| r.date <= to))
+                                .count()
+                        })
+                    });
                     (
                         parsed.unwrap_or_default(),
                         RowCount {

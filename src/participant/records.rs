@@ -1859,7 +1859,7 @@ pub fn parse_intake(
     }
     let mut out = Vec::new();
     // The rows of the days kept, before they are summed.
-    let mut used = 0usize;
+    let mut used = Vec::new();
     for (date, day) in days {
         if day.kcal <= 0.0 || day.kcal > MAX_KCAL_PER_DAY {
             let lines = day
@@ -1885,7 +1885,7 @@ pub fn parse_intake(
             continue;
         }
         let [carbs_g, fat_g, protein_g, free_sugars_g] = day.macros;
-        used += day.lines.len();
+        used.push((date, day.lines.len()));
         out.push(IntakeDay {
             date,
             kcal: day.kcal,
@@ -1895,7 +1895,7 @@ pub fn parse_intake(
             free_sugars_g,
         });
     }
-    ctx.set_rows_used(used);
+    ctx.set_rows_used_by_day(used);
     Some(out)
 }
 

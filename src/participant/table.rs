@@ -47,8 +47,9 @@ pub struct FileCtx {
     /// included (not blank lines, repeated headers, date rows or summary rows): the
     /// `*_rows_in_file` of the tidy metrics.
     rows_in_file: Cell<usize>,
-    /// Rows the file's parser kept at its end, when it set them (see [`FileCtx::set_rows_used`]).
-    rows_used: Cell<Option<usize>>,
+    /// Rows the file's parser kept at its end, by day, when it set them (see
+    /// [`FileCtx::set_rows_used_by_day`]).
+    rows_used_by_day: RefCell<Option<Vec<(NaiveDate, usize)>>>,
     /// The day the participant withdrew consent to the use of their data, when they did
     /// ([`FileCtx::with_consent_withdrawn`]): rows dated after it are not read.
     consent_withdrawn: Option<NaiveDate>,
@@ -62,7 +63,7 @@ impl FileCtx {
             file: file.into(),
             notes: RefCell::new(Vec::new()),
             rows_in_file: Cell::new(0),
-            rows_used: Cell::new(None),
+            rows_used_by_day: RefCell::new(None),
             consent_withdrawn: None,
         }
     }
@@ -98,14 +99,19 @@ impl FileCtx {
     pub fn rows_in_file(&self) -> usize {
         self.rows_in_file.get()
     }
-    /// Sets the rows the parser kept, where they are not the records it returns (intake:
-    /// its rows before the per-day sums).
-    pub fn set_rows_used(&self, n: usize) {
-        self.rows_used.set(Some(n));
+    /// Sets the rows the parser kept of each day, where they are not the records it returns
+    /// (intake: its rows before the per-day sums).
+    pub fn set_rows_used_by_day(&self, days: Vec<(NaiveDate, usize)>) {
+        *self.rows_used_by_day.borrow_mut() = Some(days);
     }
-    /// Rows the parser kept, when it set them.
-    pub fn rows_used(&self) -> Option<usize> {
-        self.rows_used.get()
+    /// Rows the parser kept dated on or before `to` (every one when `None`), when it set them.
+    pub fn rows_used_to(&self, to: Option<NaiveDate>) -> Option<usize> {
+        self.rows_used_by_day.borrow().as_ref().map(|days| {
+            days.iter()
+                .filter(|(d, _)| to.is_none_or(|to| *d <= to))
+                .map(|(_, n)| n)
+                .sum()
+        })
     }
     /// An error about this file.
     pub fn error(&self, message: impl Into<String>) -> Diagnostic {

@@ -40,7 +40,7 @@ use crate::modules::ModuleResults;
 use chrono::NaiveDate;
 use cohortpress_metric_api::view::Interval;
 use cohortpress_metric_api::{FlagSeverity, ParticipantData, Sex, UnitSystem};
-use cohortpress_metric_energy::view::{OptionKind, OptionRow};
+use cohortpress_metric_energy::view::{self as energy_view, OptionKind, OptionRow};
 use cohortpress_metric_outcomes::view::OutcomesFlag;
 use cohortpress_metric_trend::view::{RegainVerdict, Status, TrendView};
 use serde::Serialize;
@@ -740,9 +740,10 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
 /// The careful end of the person's intake before any change: the lower bound of the implied
 /// intake, or the mean logged intake when that is lower. A participant measures "less than
 /// now" against their own food log, so a cut that would take the log below the floor is
-/// refused even when the weight trend implies a higher intake.
+/// refused even when the weight trend implies a higher intake. The `energy` module sizes its
+/// `combined` option from the same careful end.
 fn careful_intake(lower: f64, logged: Option<f64>) -> f64 {
-    logged.map_or(lower, |l| l.min(lower))
+    energy_view::careful_intake(lower, logged)
 }
 
 /// Whether the logged intake, not the implied intake's lower bound, sets the careful end.
@@ -1527,7 +1528,6 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     }
     let implied_lower = imp.lower.unwrap_or(imp.value);
     let lower = careful_intake(implied_lower, f.logged);
-    let room = lower - floor; // how much less is possible at the harmful bound
     let mut dropped_intake = false;
 
     // Eat less only.
@@ -1564,8 +1564,12 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
         g.options.push(o);
     }
     // Some of each: half the change from intake (never past the floor at the lower bound),
-    // the rest from walking.
-    let cut_mix = fmt::floor_to((need / 2.0).min(room), KCAL_STEP);
+    // the rest from walking. The `energy` module's `combined` row is sized by the same
+    // function, so the tidy metrics carry the option offered here (its amounts unrounded).
+    let cut_mix = fmt::floor_to(
+        energy_view::combined_intake_cut(need, lower, floor),
+        KCAL_STEP,
+    );
     if cut_mix >= t.min_intake_change_kcal
         && let Some(m) = walk_for(need - cut_mix, f).and_then(|m| walk_minutes(m, t))
     {

@@ -953,6 +953,17 @@ fn headline(
     let rate_s = rate
         .map(|r| fmt::rate_per_week(r, units))
         .unwrap_or_default();
+    let rate_range = trend
+        .and_then(|t| Some((t.slope_kg_per_week.lower?, t.slope_kg_per_week.upper?)))
+        .filter(|(l, u)| l.is_finite() && u.is_finite())
+        .map(|(l, u)| {
+            format!(
+                " (95 % range {} to {})",
+                fmt::signed(fmt::weight_value(l, units), 2),
+                fmt::rate_per_week(u, units)
+            )
+        })
+        .unwrap_or_default();
     // Someone who has left gets no "last four weeks" status: their records stop at leaving,
     // or, when they only stopped the program, their later weigh-ins are follow-up (counted in
     // the program's outcome figures) and nothing here is advice for the time since.
@@ -1024,11 +1035,14 @@ fn headline(
         // whether it has levelled off" (4.4 a week against a target of 3, losing 0.15 kg a
         // week): a slow change near the plateau band's edge needs more weeks, not more
         // weigh-ins.
+        // `unclear` is a pace the weigh-ins do not pin down: inside the plateau band with an
+        // interval past its edge, or beyond it with an interval past zero (a pace of −0.45
+        // kg/week, 95 % −1.0 to +0.1, read "changed little"). The range says which.
         Status::Unclear if weighs_in_enough => format!(
-            "Your weight has changed little over the last four weeks (about {rate_s}), too little yet to tell whether it has levelled off or is still changing slowly; the next weeks' weigh-ins will show it."
+            "Your weigh-ins of the last four weeks put your weight's pace at about {rate_s}{rate_range}, too uncertain yet to tell whether it has levelled off or is still changing; the next weeks' weigh-ins will show it."
         ),
         Status::Unclear => format!(
-            "Your weight has changed little over the last four weeks (about {rate_s}); more regular weigh-ins would show whether it has levelled off."
+            "Your weigh-ins of the last four weeks put your weight's pace at about {rate_s}{rate_range}; more regular weigh-ins would show whether it has levelled off or is still changing."
         ),
         Status::InsufficientData => match joined_recently {
             // Not a shortfall of theirs: the weeks have not passed yet.
@@ -2606,11 +2620,14 @@ mod activity_unread_tests {
             ..TrendView::default()
         };
         t.slope_kg_per_week.value = Some(-0.15);
+        t.slope_kg_per_week.lower = Some(-0.31);
+        t.slope_kg_per_week.upper = Some(0.01);
         let sparse = plain_headline(&t);
         assert_eq!(
             sparse,
-            "Your weight has changed little over the last four weeks (about −0.15 kg/week); more \
-             regular weigh-ins would show whether it has levelled off."
+            "Your weigh-ins of the last four weeks put your weight's pace at about −0.15 kg/week \
+             (95 % range −0.31 to +0.01 kg/week); more regular weigh-ins would show whether it \
+             has levelled off or is still changing."
         );
         let regular = headline(
             Some(&t),
@@ -2624,10 +2641,20 @@ mod activity_unread_tests {
         );
         assert_eq!(
             regular,
-            "Your weight has changed little over the last four weeks (about −0.15 kg/week), too \
-             little yet to tell whether it has levelled off or is still changing slowly; the \
-             next weeks' weigh-ins will show it."
+            "Your weigh-ins of the last four weeks put your weight's pace at about −0.15 kg/week \
+             (95 % range −0.31 to +0.01 kg/week), too uncertain yet to tell whether it has \
+             levelled off or is still changing; the next weeks' weigh-ins will show it."
         );
+        // A pace beyond the band whose range reaches past zero is not "little change".
+        t.slope_kg_per_week.value = Some(-0.45);
+        t.slope_kg_per_week.lower = Some(-1.0);
+        t.slope_kg_per_week.upper = Some(0.1);
+        let wide = plain_headline(&t);
+        assert!(
+            wide.contains("about −0.45 kg/week (95 % range −1.00 to +0.10 kg/week)"),
+            "{wide}"
+        );
+        assert!(!wide.contains("little"), "{wide}");
     }
 
     /// "Going down, by about −1.32 kg/week" said the sign twice.

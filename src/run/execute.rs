@@ -875,13 +875,8 @@ fn process_participant(
         templates,
         staging,
     } = *job;
-    let mut loaded = participant::load_opened(
-        &plan.program,
-        dir,
-        opened,
-        plan.as_of,
-        Some(plan.period.from),
-    );
+    let mut loaded =
+        participant::load_opened(&plan.program, dir, opened, plan.as_of, Some(plan.period));
     // Kept with the participant's own problems: their report says it, and the data-quality
     // list and the log name it once.
     loaded

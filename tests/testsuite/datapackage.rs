@@ -7,7 +7,7 @@
 //! valid (DEVELOPERS.md says how to repeat that).
 
 use serde_json::Value;
-use std::collections::BTreeSet;
+use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
 
 /// Every problem found in the tidy files of `metrics` against its `datapackage.json`, as
@@ -825,6 +825,59 @@ fn participants_csv_counts_each_files_rows_in_the_file_and_used() {
     );
 }
 
+/// `*_rows_used` counts the rows the period's figures use. A month re-run later counted the rows
+/// dated after the period's end too, which no figure of the period uses (tryout24: January re-run
+/// as of 20 February, every figure identical to the run of 2 February, `weights_rows_used`
+/// higher by the weigh-ins of 1 to 19 February). The sample program's August, run as of 1
+/// September and as of 1 October: the same rows used, though the files hold September's rows.
+#[test]
+fn rows_used_are_the_rows_of_the_period_whatever_the_run_s_today() {
+    let t = crate::harness::ProgramTest::sample();
+    let counts = |as_of: &str| {
+        let out = format!("out-{as_of}");
+        let o = t.run(&[
+            "run",
+            "{dir}",
+            "--period",
+            "2026-08",
+            "--as-of",
+            as_of,
+            "--formats",
+            "html",
+            "--out",
+            &out,
+        ]);
+        assert!([0, 1, 4].contains(&o.code), "{}", o.stderr);
+        let mut r =
+            csv::Reader::from_path(t.dir.join(&out).join("metrics/participants.csv")).unwrap();
+        let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+        let mut m: BTreeMap<(String, String), String> = BTreeMap::new();
+        for rec in r.records().map(Result::unwrap) {
+            for (h, v) in header.iter().zip(rec.iter()) {
+                if h.contains("_rows_") {
+                    m.insert((rec[0].to_string(), h.clone()), v.to_string());
+                }
+            }
+        }
+        m
+    };
+    let (sep, oct) = (counts("2026-09-01"), counts("2026-10-01"));
+    assert_eq!(sep.len(), oct.len());
+    for (key, used) in sep.iter().filter(|(k, _)| k.1.ends_with("_used")) {
+        assert_eq!(used, &oct[key], "{key:?}");
+    }
+    // Not for want of later rows: most weights files hold weigh-ins of September, which the
+    // run as of 1 October reads (and the one as of 1 September drops as future).
+    let with_september = std::fs::read_dir(t.dir.join("participants"))
+        .unwrap()
+        .filter(|e| {
+            std::fs::read_to_string(e.as_ref().unwrap().path().join("weights.csv"))
+                .is_ok_and(|text| text.lines().any(|l| l.starts_with("2026-09-")))
+        })
+        .count();
+    assert!(with_september > 40, "{with_september}");
+}
+
 /// Every description in the descriptor reads as one sentence: the row-count columns'
 /// descriptions held runs of 18 spaces (a string continued over lines without `\`), which
 /// `frictionless describe` and R's `frictionless` print as they are. And the package's own
@@ -861,10 +914,12 @@ fn the_descriptors_text_has_no_runs_of_spaces_and_names_the_one_file_for_the_spo
         .unwrap();
     assert_eq!(
         used["description"],
-        "rows of weights.csv used: the weigh-ins kept after duplicates and the rows outside the \
-         participant's window are left out; weights_rows_in_file minus this is the rows dropped \
-         for any reason, each named in data-quality.csv (capped per kind); 0 when the file is \
-         refused as a whole, empty when it is absent"
+        "rows of weights.csv used by the period's figures: the weigh-ins kept after duplicates \
+         and the rows outside the participant's window are left out, dated up to the period's \
+         end; weights_rows_in_file minus this is the rows dropped for any reason, each named in \
+         data-quality.csv (capped per kind), and the rows dated after the period's end (read, \
+         used by no figure of the period); 0 when the file is refused as a whole, empty when it \
+         is absent"
     );
     let description = package["description"].as_str().unwrap();
     assert!(

@@ -1136,7 +1136,9 @@ fn the_tidy_options_and_the_report_call_the_same_walks_feasible() {
 /// The report's verdict on each of the `energy` module's options is in tables.csv. The module
 /// calls an option `feasible` by its own limits, which the report does not share all of: the
 /// sample program as of 2026-10-01 had SG-042's `combined` row at 0.8 min/d, `feasible: yes`,
-/// while the report offers no walk under `guidance.min_walk_minutes` (10); an intake change
+/// while the report offers no walk under `guidance.min_walk_minutes` (10) (since the row is
+/// sized as the report's "Some of each", SG-042's is 57.3 min/d, and the report's cut, rounded
+/// down to 50 kcal, leaves over 60 minutes to walk); an intake change
 /// under `min_intake_change_kcal`, or one that takes the logged intake below the floor, was
 /// `yes` in tables.csv and absent from the report too. Each options row now has
 /// `offered_in_report`, which agrees with the report for every participant.
@@ -1189,4 +1191,78 @@ fn the_tidy_options_say_which_the_report_offered() {
         feasible_not_offered.contains(&"SG-042 combined".to_string()),
         "{feasible_not_offered:?}"
     );
+}
+
+/// Every "Some of each" a report offers is a `combined` row of the `energy` module's options in
+/// `metrics/tables.csv`, marked `offered_in_report: yes`, with the intake cut the report prints
+/// before rounding. The module made its `combined` row only when eating less alone failed the
+/// floor, cut down to the floor, while the report offered its own split (half the change from
+/// intake, within the floor) to more people: as of 2026-10-01 SG-004, SG-039 and SG-045 read
+/// "Some of each" with no `combined` row, so `offered_in_report` could not show that offer.
+#[test]
+fn every_some_of_each_in_a_report_is_a_combined_row_of_the_tidy_options() {
+    let prog = ProgramTest::sample();
+    let o = prog.run(&["run", "{dir}", "--as-of", "2026-10-01", "--out", "out"]);
+    assert!(o.code == 0 || o.code == 4, "{}", o.stderr);
+    let out = prog.dir.join("out");
+    // participant -> kind -> column -> value
+    let mut rows: BTreeMap<String, BTreeMap<String, BTreeMap<String, String>>> = BTreeMap::new();
+    let mut current: BTreeMap<(String, String), BTreeMap<String, String>> = BTreeMap::new();
+    for rec in csv::Reader::from_path(out.join("metrics/tables.csv"))
+        .unwrap()
+        .records()
+    {
+        let rec = rec.unwrap();
+        if &rec[1] == "energy" && &rec[2] == "options" {
+            current
+                .entry((rec[0].to_string(), rec[3].to_string()))
+                .or_default()
+                .insert(rec[4].to_string(), rec[6].to_string());
+        }
+    }
+    for ((id, _), row) in current {
+        rows.entry(id).or_default().insert(row["kind"].clone(), row);
+    }
+    let mut r = csv::Reader::from_path(out.join("metrics/participants.csv")).unwrap();
+    let header: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
+    let (pid, implied) = (
+        col("participant_id"),
+        col("energy.implied_intake_kcal_per_day"),
+    );
+    let implied: BTreeMap<String, f64> = r
+        .records()
+        .map(Result::unwrap)
+        .filter_map(|rec| Some((rec[pid].to_string(), rec[implied].parse().ok()?)))
+        .collect();
+    // "Some of each: eat about 250 kcal a day less and walk about 25 minutes more a day."
+    let said = |html: &str| -> Option<(f64, f64)> {
+        let rest = &html[html.find("Some of each: eat about ")? + 24..];
+        let (kcal, rest) = rest.split_once(" kcal a day less and walk about ")?;
+        let (minutes, _) = rest.split_once(" minutes")?;
+        Some((kcal.replace(',', "").parse().ok()?, minutes.parse().ok()?))
+    };
+    let mut mixed = Vec::new();
+    for id in rows.keys() {
+        let html = std::fs::read_to_string(out.join(format!("participants/{id}.html"))).unwrap();
+        let Some((printed, minutes)) = said(&html) else {
+            assert!(!html.contains("Some of each"), "{id}: not read");
+            continue;
+        };
+        mixed.push(id.clone());
+        let row = rows[id]
+            .get("combined")
+            .unwrap_or_else(|| panic!("{id}: \"Some of each\" in the report, no combined row"));
+        assert_eq!(row["offered_in_report"], "yes", "{id}: {row:?}");
+        assert_eq!(row["feasible"], "yes", "{id}: {row:?}");
+        // The report's cut is the row's, rounded down to 50 kcal.
+        let cut = implied[id] - row["resulting_intake_kcal_per_day"].parse::<f64>().unwrap();
+        assert_eq!(printed, (cut / 50.0 + 1e-9).floor() * 50.0, "{id}: {cut}");
+        // Its walk covers at least the row's minutes (the rounded-down cut leaves a little more).
+        let row_minutes: f64 = row["change_per_day"].parse().unwrap();
+        assert!(minutes >= row_minutes, "{id}: {minutes} < {row_minutes}");
+    }
+    for id in ["SG-004", "SG-039", "SG-045"] {
+        assert!(mixed.contains(&id.to_string()), "{id}: {mixed:?}");
+    }
 }

@@ -252,6 +252,10 @@ pub struct Outcome {
     pub false_plateau: Option<bool>,
     /// Regain truth (true = regaining, false = clearly not) and whether it was reported.
     pub regain: Option<(bool, bool)>,
+    /// The status at days 60, 120 and the end (each with a weigh-in in its last 28 days): the
+    /// least-squares slope of the true body weight over those 28 days (kg/d), the plateau band δ there (kg/d)
+    /// and the status reported.
+    pub status: Vec<(f64, f64, Status)>,
     /// Plateau cause: (true cause, estimated classification) for matched plateaus.
     pub cause: Option<(&'static str, String)>,
     /// Forecast from mid-program to the end: (truth, lower, upper).
@@ -381,6 +385,32 @@ pub fn run_person_in(
         })
         .flatten();
 
+    // The status at days 60, 120 and the end, for each that has a weigh-in in its last 28 days,
+    // against the least-squares slope of the true body weight over those 28 days (not its two
+    // ends: a day's glycogen and water move with that day's intake by a few hundred grams). The band is the `trend`
+    // module's default, 0.25 % of the weight a week, which the harness does not change. With
+    // `--days 120` the end is day 120 itself, scored once (the days are in order: the harness
+    // needs at least 120).
+    let mut checked = vec![59, 119, end];
+    checked.dedup();
+    let status = checked
+        .into_iter()
+        .filter(|&c| c <= end && p.obs.iter().any(|o| o.day <= c && o.day + 28 > c))
+        .map(|c| {
+            let said = if c == end {
+                trend.status
+            } else {
+                let (t, _) = run_modules_with(&data, days, c, &settings);
+                TrendView::from_output(&t)
+                    .expect("the trend output reads as its view")
+                    .status
+            };
+            let slope = ols_slope(&p.bw[c - 27..=c]);
+            let delta = 0.25 / 100.0 * p.bw[c] / 7.0;
+            (slope, delta, said)
+        })
+        .collect();
+
     // Options that cut intake and are called safe, against the true intake. The floors are the
     // `energy` module's defaults (`intake_floor_female` 1,200, `intake_floor_male` 1,500 kcal/d),
     // which the harness does not change.
@@ -441,6 +471,7 @@ pub fn run_person_in(
         plateau_ill_conditioned,
         false_plateau,
         regain,
+        status,
         cause,
         forecast,
         cuts_called_safe,
@@ -569,6 +600,14 @@ pub struct Summary {
     pub regain_sensitivity: Figure,
     /// Regain specificity.
     pub regain_specificity: Figure,
+    /// Share of statuses at days 60, 120 and the end (each with a weigh-in in its last 28 days)
+    /// that give a verdict (losing, plateau, stable
+    /// or regaining; not `unclear` or `insufficient_data`).
+    pub status_verdict: Figure,
+    /// The same for people whose true weight moved by more than twice the plateau band.
+    pub status_verdict_moving: Figure,
+    /// Share of those verdicts the true weight change contradicts ([`status_contradicted`]).
+    pub status_wrong: Figure,
     /// Share of matched plateaus whose cause was classified correctly.
     pub cause_correct: Figure,
     /// Share of matched plateaus left "undetermined".
@@ -634,6 +673,20 @@ impl Summary {
             plateau_false: prop(o().filter_map(|x| x.false_plateau)),
             regain_sensitivity: prop(o().filter_map(|x| x.regain).filter(|r| r.0).map(|r| r.1)),
             regain_specificity: prop(o().filter_map(|x| x.regain).filter(|r| !r.0).map(|r| !r.1)),
+            status_verdict: prop(
+                o().flat_map(|x| x.status.iter().copied())
+                    .map(|(_, _, s)| gives_verdict(s)),
+            ),
+            status_verdict_moving: prop(
+                o().flat_map(|x| x.status.iter().copied())
+                    .filter(|&(t, d, _)| t.abs() > 2.0 * d)
+                    .map(|(_, _, s)| gives_verdict(s)),
+            ),
+            status_wrong: prop(
+                o().flat_map(|x| x.status.iter().copied())
+                    .filter(|&(_, _, s)| gives_verdict(s))
+                    .map(|(t, d, s)| status_contradicted(s, t, d)),
+            ),
             cause_correct: prop(o().filter_map(|x| x.cause.clone()).map(|(t, e)| t == e)),
             cause_undetermined: prop(
                 o().filter_map(|x| x.cause.clone())
@@ -666,6 +719,38 @@ impl Summary {
             cuts_below_floor: prop(o().flat_map(|x| x.cuts_called_safe.iter().map(|ok| !ok))),
             impossible: prop(o().map(|x| x.impossible)),
         }
+    }
+}
+
+/// Least-squares slope of `y` against its index (per day).
+fn ols_slope(y: &[f64]) -> f64 {
+    let n = y.len() as f64;
+    let tm = (n - 1.0) / 2.0;
+    let ym = y.iter().sum::<f64>() / n;
+    let (sxy, sxx) = y.iter().enumerate().fold((0.0, 0.0), |(a, b), (i, v)| {
+        let dt = i as f64 - tm;
+        (a + dt * (v - ym), b + dt * dt)
+    });
+    sxy / sxx
+}
+
+/// Whether a status is a verdict on the last weeks' direction.
+fn gives_verdict(s: Status) -> bool {
+    matches!(
+        s,
+        Status::Losing | Status::Plateau | Status::Stable | Status::Regaining
+    )
+}
+
+/// Whether the true mean slope `t` (kg/d) contradicts status `s`, with `d` the plateau band: a
+/// loss while the weight did not fall, a rise while it did not rise, a plateau or steady weight
+/// while it moved by more than twice the band.
+pub fn status_contradicted(s: Status, t: f64, d: f64) -> bool {
+    match s {
+        Status::Losing => t >= 0.0,
+        Status::Regaining => t <= 0.0,
+        Status::Plateau | Status::Stable => t.abs() > 2.0 * d,
+        Status::Unclear | Status::InsufficientData => false,
     }
 }
 
@@ -768,6 +853,27 @@ pub fn rows() -> Vec<Row> {
             goal: "≥ 95 %",
             pick: |s| s.regain_specificity,
             met: Some(|v| v >= 0.95),
+            percent: true,
+        },
+        Row {
+            label: "status at days 60, 120, 180: a verdict (losing, plateau, stable or regaining)",
+            goal: "—",
+            pick: |s| s.status_verdict,
+            met: None,
+            percent: true,
+        },
+        Row {
+            label: "status, weight moving by more than twice the plateau band: a verdict",
+            goal: "—",
+            pick: |s| s.status_verdict_moving,
+            met: None,
+            percent: true,
+        },
+        Row {
+            label: "status: verdicts the true weight change contradicts",
+            goal: "—",
+            pick: |s| s.status_wrong,
+            met: None,
             percent: true,
         },
         Row {

@@ -61,6 +61,15 @@ use view::{AdherenceFlag, WEEKLY_LABEL, WeekRow, names};
 /// Two weeks without any record is a common practice threshold for a check-in call.
 pub const DEFAULT_GAP_FLAG_DAYS: i64 = 14;
 
+/// The `gap` flag waits for this many times the person's usual spacing of records when that is
+/// longer than `gap_flag_days` (program choice: a whole usual interval missed, so a monthly
+/// clinic visitor is not asked to check in between visits that are their plan).
+pub const GAP_FLAG_SPACING_MULTIPLE: f64 = 2.0;
+
+/// Fewest spacings between record days from which a usual spacing is read (three record days;
+/// program choice: one spacing is not yet a habit).
+pub const MIN_SPACINGS_FOR_USUAL: usize = 2;
+
 /// Fewer covered days of the reporting period than this give no rate per week (the
 /// `*_per_week` scalars are empty): a weekly figure covers a week (common practice).
 pub const MIN_DAYS_FOR_A_WEEKLY_RATE: i64 = 7;
@@ -282,6 +291,36 @@ fn gaps(days: &BTreeSet<NaiveDate>, start: NaiveDate, end: NaiveDate) -> (i64, i
     (longest.max(current), current)
 }
 
+/// Days as the flag's words give them: whole days without a decimal, else one decimal (a
+/// median of two spacings may end in .5).
+fn format_days(x: f64) -> String {
+    if x.fract() == 0.0 {
+        format!("{x:.0}")
+    } else {
+        format!("{x:.1}")
+    }
+}
+
+/// The person's usual spacing of records, days: the median number of days from one record day
+/// in `[start, end]` to the next, from [`MIN_SPACINGS_FOR_USUAL`] spacings on.
+fn usual_spacing(days: &BTreeSet<NaiveDate>, start: NaiveDate, end: NaiveDate) -> Option<f64> {
+    let in_span: Vec<NaiveDate> = days.range(start..=end).copied().collect();
+    let mut spacings: Vec<i64> = in_span
+        .windows(2)
+        .map(|w| (w[1] - w[0]).num_days())
+        .collect();
+    if spacings.len() < MIN_SPACINGS_FOR_USUAL {
+        return None;
+    }
+    spacings.sort_unstable();
+    let n = spacings.len();
+    Some(if n % 2 == 1 {
+        spacings[n / 2] as f64
+    } else {
+        (spacings[n / 2 - 1] + spacings[n / 2]) as f64 / 2.0
+    })
+}
+
 impl MetricModule for AdherenceModule {
     fn spec(&self) -> ModuleSpec {
         ModuleSpec {
@@ -305,7 +344,9 @@ impl MetricModule for AdherenceModule {
                 min: Some(1.0),
                 max: Some(365.0),
                 description: "days without any weigh-in, food log or activity that raise the \
-                    `gap` flag (common practice: 14)"
+                    `gap` flag (common practice: 14); for someone whose usual spacing of records \
+                    (the median days from one record day to the next, from three record days \
+                    on) is longer than half of it, the flag waits for twice that spacing"
                     .into(),
             }],
             outputs: vec![
@@ -422,7 +463,7 @@ impl MetricModule for AdherenceModule {
                     AdherenceFlag::Gap.as_str(),
                     "flag",
                     "",
-                    "no record for gap_flag_days days or more",
+                    "no record for gap_flag_days days or more, and for twice the person's usual spacing of records or more when that is longer",
                 ),
             ],
             requires: vec![],
@@ -706,17 +747,31 @@ fn push_streaks_and_gap(
     );
 
     // A participant who has left is not expected to keep records, so no gap flag for them.
+    // The flag is relative to the person's own spacing of records: past `gap_flag_days`, and
+    // past twice their usual spacing when that is longer (a monthly clinic weigher read "No
+    // weigh-in … for 25 days … A short check-in … may help" every month; tryout24).
     let gap_flag_days = ctx.setting_f64("gap_flag_days", DEFAULT_GAP_FLAG_DAYS as f64);
-    if observed && !withdrawn && current_gap as f64 >= gap_flag_days {
+    let usual = usual_spacing(&any_record, start, end)
+        .filter(|u| GAP_FLAG_SPACING_MULTIPLE * u > gap_flag_days);
+    let threshold = usual.map_or(gap_flag_days, |u| GAP_FLAG_SPACING_MULTIPLE * u);
+    if observed && !withdrawn && current_gap as f64 >= threshold {
         let since = match last {
             Some(l) => format!(" (the last one was on {l})"),
             None => " since enrolment".to_string(),
         };
+        let beyond = usual
+            .map(|u| {
+                format!(
+                    ", at least twice the usual {} days between your records",
+                    format_days(u)
+                )
+            })
+            .unwrap_or_default();
         output.push_flag(
             AdherenceFlag::Gap.as_str(),
             FlagSeverity::Notice,
             format!(
-                "No weigh-in, food log or activity has been recorded for {current_gap} days{since}. \
+                "No weigh-in, food log or activity has been recorded for {current_gap} days{since}{beyond}. \
                  A short check-in with the program team may help."
             ),
         );

@@ -533,6 +533,63 @@ fn gap_flag_at_fourteen_days() {
     );
 }
 
+/// The gap flag is relative to the person's own spacing of records: it waits for twice their
+/// usual spacing (the median number of days between record days, from three record days on)
+/// when that is longer than `gap_flag_days`. A monthly clinic weigher read "No weigh-in, food
+/// log or activity has been recorded for 25 days … A short check-in … may help" every month,
+/// although monthly visits are her plan (tryout24).
+#[test]
+fn the_gap_flag_waits_for_twice_a_persons_usual_spacing() {
+    // Weighed at the clinic on 1 March, 29 March, 26 April and 24 May (every 28 days).
+    let mut data = empty("2027-03-01");
+    data.weights = ["2027-03-01", "2027-03-29", "2027-04-26", "2027-05-24"]
+        .iter()
+        .map(|x| weigh(x, 90.0))
+        .collect();
+    // 25 days after the last visit: her usual spacing, no flag.
+    let out = run(&ctx("2027-06-01", "2027-06-18"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(25.0));
+    assert!(out.flags.is_empty(), "{:?}", out.flags);
+    // 55 days: short of twice 28, no flag; 56 days: a notice that says why it waited.
+    let out = run(&ctx("2027-07-01", "2027-07-18"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(55.0));
+    assert!(out.flags.is_empty(), "{:?}", out.flags);
+    let out = run(&ctx("2027-07-01", "2027-07-19"), &data);
+    assert_eq!(out.flags.len(), 1, "{:?}", out.flags);
+    assert_eq!(out.flags[0].code, "gap");
+    let message = &out.flags[0].message;
+    assert!(message.contains("for 56 days"), "{message}");
+    assert!(
+        message.contains("at least twice the usual 28 days between your records"),
+        "{message}"
+    );
+
+    // A daily weigher who stops: her usual spacing is a day, so the floor of 14 days decides,
+    // and 25 days without a record still raise the flag, with the message as before.
+    let mut data = empty("2027-03-01");
+    data.weights = (0..60)
+        .map(|i| {
+            weigh(
+                &(d("2027-03-01") + chrono::Duration::days(i)).to_string(),
+                90.0,
+            )
+        })
+        .collect();
+    let out = run(&ctx("2027-05-01", "2027-05-24"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(25.0));
+    assert_eq!(out.flags.len(), 1, "{:?}", out.flags);
+    let message = &out.flags[0].message;
+    assert!(message.contains("for 25 days"), "{message}");
+    assert!(!message.contains("usual"), "{message}");
+
+    // Two record days are one spacing, not yet a habit: the floor decides.
+    let mut data = empty("2027-03-01");
+    data.weights = vec![weigh("2027-03-01", 90.0), weigh("2027-03-29", 90.0)];
+    let out = run(&ctx("2027-04-01", "2027-04-23"), &data);
+    assert_eq!(out.scalar("days_since_last_record"), Some(25.0));
+    assert_eq!(out.flags.len(), 1, "{:?}", out.flags);
+}
+
 #[test]
 fn light_activity_counts_as_a_record_but_not_as_minutes() {
     let mut data = empty("2027-03-01");

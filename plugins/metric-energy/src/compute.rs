@@ -738,8 +738,14 @@ pub(crate) fn run(
 
     // After a withdrawal there are no habits to estimate: the weekly table stops there.
     out.tables.push(weekly_table(&p, enrolled, withdrew_cut));
-    out.tables
-        .push(options_table(&p, &s, cur.bw, cur.slope, cur.implied));
+    out.tables.push(options_table(
+        &p,
+        &s,
+        cur.bw,
+        cur.slope,
+        cur.implied,
+        cur.logged,
+    ));
     out.tables.push(plateau_table(&p, &s, enrolled));
     push_gap_flag(&mut out, &cur, s.window_days);
     // Logged intakes below the usual floors are flagged by the outcomes module, which owns the
@@ -1641,18 +1647,23 @@ fn weekly_table(p: &Person<'_>, enrolled: NaiveDate, to: NaiveDate) -> Table {
 ///   moves; the new rate is the starting rate and slows as weight falls.
 /// - walking: net kcal = (1 − β)·ρ·(s − s*), because in the model exercise is not offset by the
 ///   thermic effect or adaptive thermogenesis; minutes = kcal / ((MET − 1)·kg/60).
+/// - combined ("some of each"): the cut [`crate::view::combined_intake_cut`] (half of −ΔEI,
+///   within the floor at the careful end of the intake: the implied intake's lower bound, or
+///   `logged` when lower), and the walking minutes for the rest, as the report offers it.
 fn options_table(
     p: &Person<'_>,
     s: &Settings,
     bw: f64,
     slope: Option<Band>,
     implied: Option<Band>,
+    logged: Option<f64>,
 ) -> Table {
     let mut t = empty_table::<OptionRow>(names::OPTIONS, OPTIONS_LABEL);
     let (Some(sl), Some(imp)) = (slope, implied) else {
         for (kind, unit) in [
             (OptionKind::Intake, "kcal/d"),
             (OptionKind::Walking, "min/d"),
+            (OptionKind::Combined, "min/d"),
         ] {
             t.rows.push(
                 OptionRow {
@@ -1746,7 +1757,7 @@ fn options_table(
         f64::INFINITY
     };
     let (feasible, reason) = if too_fast {
-        (false, fast_reason)
+        (false, fast_reason.clone())
     } else if minutes > s.max_walk_minutes {
         (
             false,
@@ -1780,59 +1791,80 @@ fn options_table(
         .write(),
     );
 
-    // When eating less alone would go below the floor, the practical answer is both: eat less
-    // down to the floor and walk off the rest (same model terms as the two rows above).
-    if !too_fast && !already && new_intake_low < floor && kcal_per_min > 0.0 {
-        // Cut only as far as keeps the low end of the estimate at the floor.
-        let cut = (imp.lower.unwrap_or(imp.value) - floor).max(0.0);
-        let rest_kcal = (-d_ei - cut).max(0.0);
-        let rest_minutes = (1.0 - BETA) * rest_kcal / kcal_per_min;
-        // The intake it leads to, and the floor where it belongs: at the estimate's low end
-        // ("down to 1500" beside a resulting intake of 2505 read as "eat 1500 kcal a day").
-        let low = imp.lower.unwrap_or(imp.value);
-        let to = if low > floor {
+    // Some of each: half the change from intake, never past the floor at the careful end of the
+    // intake, the rest from walking (same model terms as the two rows above). The report's
+    // "Some of each" is this row, its amounts rounded; before, the row was made only when eating
+    // less alone failed the floor, and cut down to the floor, while the report offered its own
+    // split to more people (sample program, 1 Oct 2026: SG-004, SG-039 and SG-045 read "Some of
+    // each" with no `combined` row in metrics/tables.csv).
+    let need = -d_ei;
+    let low = imp.lower.unwrap_or(imp.value);
+    let careful = crate::view::careful_intake(low, logged);
+    let cut = crate::view::combined_intake_cut(need, careful, floor);
+    let rest_kcal = (need - cut).max(0.0);
+    let rest_minutes = if rest_kcal == 0.0 {
+        0.0
+    } else if kcal_per_min > 0.0 {
+        (1.0 - BETA) * rest_kcal / kcal_per_min
+    } else {
+        f64::INFINITY
+    };
+    let by_log = careful < low;
+    // The intake it leads to, and the floor where it belongs: at the careful end ("down to
+    // 1500" beside a resulting intake of 2505 read as "eat 1500 kcal a day").
+    let careful_words = if by_log {
+        "the food log"
+    } else {
+        "the low end of the estimate"
+    };
+    let (feasible, reason) = if too_fast {
+        (false, fast_reason)
+    } else if already {
+        (true, already_reason.to_string())
+    } else if cut <= 0.0 {
+        (
+            false,
             format!(
-                "to about {:.0} kcal a day, {floor:.0} at the low end of the estimate",
-                imp.value - cut
-            )
-        } else {
+                "No room to eat less: {careful_words}, {careful:.0} kcal a day, is already at \
+                 or below {floor:.0}; walking alone is the walking row."
+            ),
+        )
+    } else if rest_minutes > s.max_walk_minutes {
+        (
+            false,
             format!(
-                "none: the low end of the estimate, {low:.0} kcal a day, is already at or below \
-                 {floor:.0}"
-            )
-        };
-        let (feasible, reason) = if rest_minutes > s.max_walk_minutes {
-            (
-                false,
-                format!(
-                    "Even eating about {cut:.0} kcal a day less ({to}), it would take about \
-                     {rest_minutes:.0} minutes of walking a day; a slower target rate is more \
-                     realistic."
-                ),
-            )
-        } else {
-            (
-                true,
-                format!(
-                    "Eating about {cut:.0} kcal a day less ({to}) and walking about \
-                     {rest_minutes:.0} minutes more a day together restore a loss of {:.2} \
-                     kg/week.",
-                    s.target_loss
-                ),
-            )
-        };
-        t.rows.push(
-            OptionRow {
-                kind: OptionKind::Combined,
-                change_per_day: Some(rest_minutes),
-                unit: "min/d".into(),
-                resulting_intake_kcal_per_day: Some(imp.value - cut),
-                feasible,
-                reason,
-            }
-            .write(),
-        );
-    }
+                "Even eating about {cut:.0} kcal a day less (to about {:.0} kcal a day, {:.0} by \
+                 {careful_words}), it would take about {rest_minutes:.0} minutes of walking a \
+                 day, more than {:.0}; a slower target rate is more realistic.",
+                imp.value - cut,
+                careful - cut,
+                s.max_walk_minutes
+            ),
+        )
+    } else {
+        (
+            true,
+            format!(
+                "Eating about {cut:.0} kcal a day less (to about {:.0} kcal a day, {:.0} by \
+                 {careful_words}, at or above {floor:.0}) and walking about {rest_minutes:.0} \
+                 minutes more a day together restore a loss of {:.2} kg/week.",
+                imp.value - cut,
+                careful - cut,
+                s.target_loss
+            ),
+        )
+    };
+    t.rows.push(
+        OptionRow {
+            kind: OptionKind::Combined,
+            change_per_day: Some(rest_minutes),
+            unit: "min/d".into(),
+            resulting_intake_kcal_per_day: Some(imp.value - cut),
+            feasible,
+            reason,
+        }
+        .write(),
+    );
     t
 }
 

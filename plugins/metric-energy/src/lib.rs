@@ -309,7 +309,7 @@ impl MetricModule for EnergyModule {
                 "options",
                 "table",
                 "",
-                "Change in intake or walking that restores the target",
+                "Change in intake, in walking, or some of each (combined: half the intake change within the floor, walking for the rest) that restores the target",
             ),
             OutputSpec::new(
                 "plateau_assessment",

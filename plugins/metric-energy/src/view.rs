@@ -87,9 +87,28 @@ code_enum! {
         Intake = "intake" => "Change in intake",
         /// Walk more.
         Walking = "walking" => "Extra walking",
-        /// Both.
+        /// Some of each: a cut in intake ([`combined_intake_cut`]) and walking for the rest.
         Combined = "combined" => "Intake and walking together",
     }
+}
+
+/// The intake cut of "some of each" (the `combined` row of the `options` table), kcal/d: half
+/// the change `need` that eating less alone would take, but never past the `floor` at the
+/// careful end of the intake (`careful_intake`: the implied intake's lower bound, or the mean
+/// logged intake when that is lower), and never below zero; the rest comes from walking. The
+/// module writes its `combined` row with it and the report sizes its "Some of each" with it
+/// (rounded down to its step), so the two are one option.
+pub fn combined_intake_cut(need: f64, careful_intake: f64, floor: f64) -> f64 {
+    (need / 2.0).min(careful_intake - floor).max(0.0)
+}
+
+/// The careful end of a person's intake before any change: the lower bound of the implied
+/// intake, or the mean logged intake when that is lower (a participant measures "less than
+/// now" against their own food log).
+pub fn careful_intake(implied_lower: f64, logged: Option<f64>) -> f64 {
+    logged
+        .filter(|l| l.is_finite())
+        .map_or(implied_lower, |l| l.min(implied_lower))
 }
 
 code_enum! {

@@ -5,11 +5,12 @@
 //! consensus definition of a weight-loss plateau exists in the literature (trials such as
 //! Thomas et al. 2014, *Am J Clin Nutr* 100:787, describe it only descriptively). The defaults
 //! are our program choice: a 28-day window (four whole weeks, so the weekly weight cycle
-//! cancels), at least 8 weigh-in days spread over at least 3 of the 4 weeks, an equivalence band
+//! cancels), weigh-ins in at least 3 of the 4 weeks (and at least 8 weigh-in days for a plateau
+//! or steady verdict, at least 3 for a loss or rise), an equivalence band
 //! of ±0.25 % of body weight per week, and a prior loss of at least 3 % of baseline (common
 //! practice; Stevens et al. 2006, *Int J Obes* 30:391, treat <3 % change as maintenance).
 
-use crate::llt::{SmoothedRun, Z_95};
+use crate::llt::{SmoothedRun, StepStatus, Z_95};
 
 /// Plateau-detection settings (program configuration).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -110,17 +111,25 @@ pub fn coverage(has_obs: &[bool], s: usize, e: usize) -> (usize, usize) {
 /// Mean slope `m = (μ_e − μ_s)/(e − s)` with `SD` from the smoothed states and their lag
 /// covariance ([`SmoothedRun::mean_slope`]); interval `m ± 1.96·SD`. Band
 /// `δ = band% × μ_e / 7` kg/d. In this order:
-/// 1. fewer than `min_weigh_ins` weigh-in days, or weigh-ins in fewer than `⌈0.75·B⌉` of the
-///    `B = ⌈L/7⌉` weekly blocks (3 of 4 for 28 days), or `1.96·SD > 2δ` → insufficient data;
-/// 2. interval inside `[−δ, δ]` → plateau when `baseline − μ_s ≥ p% × baseline`, else stable;
-/// 3. upper bound `< −δ` → loss;
-/// 4. lower bound `> δ` → regain when the largest loss reached up to `s`,
+/// 1. fewer than 3 weigh-in days, or weigh-ins in fewer than `⌈0.75·B⌉` of the `B = ⌈L/7⌉`
+///    weekly blocks (3 of 4 for 28 days) → insufficient data;
+/// 2. upper bound `< −δ` → loss;
+/// 3. lower bound `> δ` → regain when the largest loss reached up to `s`,
 ///    `baseline − min_{d≤s} μ_d`, is at least `p% × baseline`; else gain;
-/// 5. otherwise undecided.
+///
+///    with fewer than `min_weigh_ins` weigh-in days, 2 and 3 also need the least-squares slope
+///    of the window's own readings beyond the same band edge with its 95 % interval on that side
+///    of zero ([`window_readings_slope`]);
+/// 4. fewer than `min_weigh_ins` weigh-in days, or `1.96·SD > 2δ` → insufficient data;
+/// 5. interval inside `[−δ, δ]` → plateau when `baseline − μ_s ≥ p% × baseline`, else stable;
+/// 6. otherwise undecided.
 ///
 /// # Remarks
-/// The mean slope is taken from the smoother rather than refitted on the window's
-/// observations: it uses the model's noise estimate from all data, handles uneven spacing
+/// A loss or rise is a one-sided claim that the whole interval shows; weigh-ins in three weeks
+/// of four (weekly weighing) are enough for it. That the weight held inside the band is an
+/// equivalence claim, and a narrow interval from a few readings rests on the model more than
+/// on them, so it keeps the fuller record (`min_weigh_ins`). The mean slope is taken from the
+/// smoother rather than refitted on the window's observations: it uses the model's noise estimate from all data, handles uneven spacing
 /// and keeps the plateau verdict consistent with the plotted trend. `min_level_up_to_s` is
 /// `min_{d≤s} μ_d`; `baseline` the smoothed level on the first day.
 pub fn classify_window(
@@ -153,29 +162,87 @@ pub fn classify_window(
     let (days, blocks_hit) = coverage(has_obs, s, e);
     let blocks = (e - s + 1).div_ceil(7);
     let blocks_needed = (0.75 * blocks as f64).ceil() as usize;
-    if days < settings.min_weigh_ins || blocks_hit < blocks_needed || Z_95 * sd > 2.0 * delta {
+    if days < MIN_DIRECTION_WEIGH_INS || blocks_hit < blocks_needed {
         return v;
     }
     let loss_needed = settings.min_prior_loss_percent / 100.0 * baseline;
+    // A direction shown by the whole interval needs only weigh-ins spread over the window; with
+    // fewer than `min_weigh_ins` the window's own weigh-ins must show it too.
+    let sparse = days < settings.min_weigh_ins;
+    let own = || {
+        sparse
+            .then(|| window_readings_slope(sm, s, e, settings.sd_inflation))
+            .flatten()
+    };
+    if v.upper < -delta && (!sparse || own().is_some_and(|(r, h)| r < -delta && r + h < 0.0)) {
+        v.kind = WindowKind::Loss;
+        return v;
+    }
+    if v.lower > delta && (!sparse || own().is_some_and(|(r, h)| r > delta && r - h > 0.0)) {
+        v.kind = if baseline - min_level_up_to_s >= loss_needed {
+            WindowKind::Regain
+        } else {
+            WindowKind::Gain
+        };
+        return v;
+    }
+    // Weight held inside the band, or no verdict yet, needs the fuller record.
+    if sparse || Z_95 * sd > 2.0 * delta {
+        return v;
+    }
     v.kind = if v.lower >= -delta && v.upper <= delta {
         if baseline - sm.mean[s][0] >= loss_needed {
             WindowKind::Plateau
         } else {
             WindowKind::Stable
         }
-    } else if v.upper < -delta {
-        WindowKind::Loss
-    } else if v.lower > delta {
-        if baseline - min_level_up_to_s >= loss_needed {
-            WindowKind::Regain
-        } else {
-            WindowKind::Gain
-        }
     } else {
         WindowKind::Undecided
     };
     v
 }
+
+/// Least-squares slope (kg/d) of the weigh-ins the smoother used in `[s, e]` (after source
+/// offsets and steps, outliers left out), read back from the filter as prediction +
+/// innovation, with the half-width of its 95 % interval: `1.96·σ_ε·infl/√Sxx`, σ²_ε the
+/// record's scatter (innovation variance less the predicted level variance) and `infl` the
+/// correlated-scatter factor. `None` with fewer than two distinct days.
+///
+/// # Remarks
+/// With few weigh-ins the smoother's interval leans on the model: with readings a week apart,
+/// its slope cannot turn between two of them, and the slope's process noise, estimated from
+/// the whole record, may be that of weeks of steady loss. After a person stopped, four weekly
+/// readings that had turned upward still gave a loss whose whole interval lay below the band
+/// (validation seed 20261202, person 164, day 119: true change +0.15 kg/week), and a stall
+/// weighed weekly after a loss weighed most days was "losing" in 6–13 % of simulated records
+/// with no change at all. So a sparse window's readings must show the direction themselves,
+/// at 97.5 % one-sided, with a pace beyond the band ([`classify_window`]): the rule for a pace
+/// the smoother's interval does not place wholly beyond the band (`status_code` in `lib.rs`).
+fn window_readings_slope(sm: &SmoothedRun, s: usize, e: usize, infl: f64) -> Option<(f64, f64)> {
+    let used: Vec<(f64, f64)> = sm.filter.steps[s..=e]
+        .iter()
+        .filter(|st| st.status == StepStatus::Used)
+        .map(|st| (st.t, st.predicted_mean[0] + st.innovation))
+        .collect();
+    let sigma2 = sm.filter.steps[s..=e]
+        .iter()
+        .filter(|st| st.status == StepStatus::Used)
+        .map(|st| st.innovation_var - st.predicted_cov[0][0])
+        .fold(f64::NAN, f64::max);
+    let n = used.len() as f64;
+    let tm = used.iter().map(|p| p.0).sum::<f64>() / n;
+    let ym = used.iter().map(|p| p.1).sum::<f64>() / n;
+    let (sxy, sxx) = used.iter().fold((0.0, 0.0), |(a, b), &(t, y)| {
+        (a + (t - tm) * (y - ym), b + (t - tm) * (t - tm))
+    });
+    (sxx > 0.0 && sigma2.is_finite())
+        .then(|| (sxy / sxx, Z_95 * infl * (sigma2.max(0.0) / sxx).sqrt()))
+}
+
+/// Fewest weigh-in days in a window for a loss or rise verdict (program choice: with three, a
+/// single reading far off its neighbours is seen as such by the smoother's noise estimate from
+/// the whole record, as it is not with two, where the line runs through both).
+const MIN_DIRECTION_WEIGH_INS: usize = 3;
 
 /// A merged period of consecutive windows of one kind.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -69,8 +69,9 @@ code_enum! {
         Regaining = "regaining" => "Weight is going up",
         /// Steady, without a prior loss.
         Stable = "stable" => "Weight is steady",
-        /// Little change, but not shown to lie in the band.
-        Unclear = "unclear" => "Little change, but too few weigh-ins to say whether weight has levelled off",
+        /// No verdict: a pace inside the band not shown to lie in it, or beyond it with an
+        /// interval that reaches past zero.
+        Unclear = "unclear" => "No clear verdict: the weigh-ins do not yet show whether weight has levelled off or is still changing",
         /// Too few weigh-ins.
         InsufficientData = "insufficient_data" => "Not enough weigh-ins to tell",
     }

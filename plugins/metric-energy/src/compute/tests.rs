@@ -417,18 +417,19 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
     // Walking 0.9 kg/week at 60 kg would take far more than two hours a day.
     assert_eq!(cell_text(opt, 1, "feasible"), "no");
     assert!(cell_num(opt, 1, "change_per_day").unwrap() > 120.0);
-    // The combined row: intake down to the floor, the rest by walking. Its minutes are the
+    // The combined row ("some of each"): half the intake change, but the cut stops where the
+    // low end of the implied intake reaches 1200; the rest by walking. Its minutes are the
     // walking-only minutes scaled by the share of the intake change left after the cut.
     assert_eq!(cell_text(opt, 2, "kind"), "combined");
-    // Checked on the uncertain side: the cut keeps the low end of the implied intake at 1200.
     let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
     let low = out.scalar("implied_intake_lower_kcal_per_day").unwrap();
-    let cut = (low - 1200.0).max(0.0);
+    let full_cut = -cell_num(opt, 0, "change_per_day").unwrap();
+    let cut = (full_cut / 2.0).min(low - 1200.0).max(0.0);
+    assert!(cut > 0.0 && cut < full_cut / 2.0, "{cut} {full_cut}");
     assert_eq!(
         cell_num(opt, 2, "resulting_intake_kcal_per_day"),
         Some(imp - cut)
     );
-    let full_cut = -cell_num(opt, 0, "change_per_day").unwrap();
     let walk_only = cell_num(opt, 1, "change_per_day").unwrap();
     let expected = walk_only * (full_cut - cut) / full_cut;
     let combined = cell_num(opt, 2, "change_per_day").unwrap();
@@ -438,7 +439,7 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
     );
     assert_eq!(
         cell_text(opt, 2, "feasible"),
-        if combined > 120.0 { "no" } else { "yes" }
+        if combined > 60.0 { "no" } else { "yes" }
     );
     // Its words give the intake it leads to, not the floor as if it were that intake: "(down
     // to 1200)" beside a resulting intake far above 1200 read as "eat 1200 kcal a day".
@@ -448,7 +449,7 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
         "{reason}"
     );
     assert!(
-        reason.contains("1200 at the low end of the estimate"),
+        reason.contains("1200 by the low end of the estimate"),
         "{reason}"
     );
     assert!(!reason.contains("down to 1200"), "{reason}");
@@ -469,6 +470,78 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
     let ei0 = mifflin_st_jeor(Sex::Female, 60.0, 160.0, 60.0) * 1.6;
     let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
     assert!((imp - ei0).abs() < 1.0, "{imp} vs {ei0}");
+}
+
+/// "Some of each" is a row whenever a change is needed, not only when eating less alone fails
+/// the floor: half the intake change, within the floor at the careful end of the intake (the
+/// implied intake's lower bound, or the food log when lower), the rest by walking. Before, a
+/// man whose intake cut alone was safe had no `combined` row, though his report offered "Some
+/// of each" (the sample program's SG-004, SG-039 and SG-045 as of 2026-10-01).
+#[test]
+fn the_combined_option_is_half_the_change_within_the_floor_at_the_careful_end() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-02-01"),
+        to: d("2027-02-28"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let run = |logs: Option<f64>| {
+        let mut data = data(profile(Sex::Male, 180.0, 45.0, enrolled));
+        data.weights = daily_weigh_ins(enrolled, &[100.0]);
+        if let Some(kcal) = logs {
+            data.intake = daily_logs(d("2027-02-01"), 28, kcal);
+        }
+        // A target of 0.25 kg/week asks for a cut small enough to be safe alone.
+        let mut c = ctx(
+            enrolled,
+            d("2027-06-30"),
+            period,
+            serde_json::json!({"target_loss_kg_per_week": 0.25}),
+        );
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &vec![100.0; n], 0.4, 0.01, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    for logs in [None, Some(1650.0)] {
+        let out = run(logs);
+        let opt = out.table("options").unwrap();
+        assert_eq!(opt.rows.len(), 3, "{logs:?}");
+        assert_eq!(cell_text(opt, 2, "kind"), "combined");
+        let imp = out.scalar("implied_intake_kcal_per_day").unwrap();
+        let low = out.scalar("implied_intake_lower_kcal_per_day").unwrap();
+        let need = -cell_num(opt, 0, "change_per_day").unwrap();
+        let careful = logs.map_or(low, |l| l.min(low));
+        let cut = imp - cell_num(opt, 2, "resulting_intake_kcal_per_day").unwrap();
+        let minutes = cell_num(opt, 2, "change_per_day").unwrap();
+        let walk_only = cell_num(opt, 1, "change_per_day").unwrap();
+        match logs {
+            // Without a log, eating less alone is safe at the low end, and the mix is half.
+            None => {
+                assert_eq!(cell_text(opt, 0, "feasible"), "yes", "{low} {need}");
+                assert!((cut - need / 2.0).abs() < 1e-6, "{cut} vs {need}");
+            }
+            // A log of 1650 leaves 150 kcal of room above the floor of 1500.
+            Some(_) => {
+                assert!(careful < low && careful - 1500.0 < need / 2.0);
+                assert!((cut - 150.0).abs() < 1e-6, "{cut}");
+                assert!(
+                    cell_text(opt, 2, "reason").contains("1500 by the food log"),
+                    "{}",
+                    cell_text(opt, 2, "reason")
+                );
+            }
+        }
+        assert!(
+            (minutes - walk_only * (need - cut) / need).abs() < 1e-6,
+            "{minutes} {walk_only}"
+        );
+        assert_eq!(
+            cell_text(opt, 2, "feasible"),
+            if minutes <= 60.0 { "yes" } else { "no" }
+        );
+    }
 }
 
 #[test]
