@@ -87,10 +87,11 @@ const ROW_COLUMNS: [RowColumn; 6] = [
 
 /// Which of the `energy` module's `options` rows the participant's report offered under "What
 /// to try next" (its options to restart a steady loss at the module's target rate). The module
-/// calls a row `feasible` by its own limits; the report offers fewer: no walk under
-/// `guidance.min_walk_minutes`, no intake change under `guidance.min_intake_change_kcal` or
-/// one that would take the person's own logged intake below the floor, and none at all in a
-/// phase other than restarting a loss. `tables.csv` gives each row the report's verdict as
+/// calls a row `feasible` by its own limits (among them the floor at the careful end of the
+/// intake, which the report shares: the implied intake's lower bound, or the logged intake
+/// when lower); the report offers fewer: no walk under `guidance.min_walk_minutes`, no intake
+/// change under `guidance.min_intake_change_kcal`, and none at all in a phase other than
+/// restarting a loss. `tables.csv` gives each row the report's verdict as
 /// the column [`OFFERED_IN_REPORT`].
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct ReportOffers {
@@ -931,9 +932,8 @@ pub fn datapackage(
                      no. feasible is \
                      the module's verdict by its own limits; the report offers fewer: none in a \
                      report that does not suggest restarting a loss, no intake change under \
-                     guidance.min_intake_change_kcal or taking the logged intake below the floor, \
-                     no walk under guidance.min_walk_minutes, amounts rounded to 50 kcal and 5 \
-                     minutes",
+                     guidance.min_intake_change_kcal, no walk under guidance.min_walk_minutes, \
+                     amounts rounded to 50 kcal and 5 minutes",
                 ),
                 DpField::new(
                     "unit",

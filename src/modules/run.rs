@@ -109,14 +109,18 @@ fn logs_ended_note(left: NaiveDate) -> String {
     )
 }
 
-/// `data` with the weigh-ins after `withdrew` left out, when it has any (only someone who
-/// stopped the program does: after withdrawn consent none is read); `None` otherwise.
-pub fn without_follow_up(data: &ParticipantData) -> Option<ParticipantData> {
+/// `data` with the weigh-ins after `withdrew` left out, when it has any up to `to`, the
+/// period's end (only someone who stopped the program does: after withdrawn consent none is
+/// read); `None` otherwise. Weigh-ins after the period's end do not count: the modules read
+/// records up to it only, and a September report run on 31 Oct for someone who left on 8 Sep
+/// and weighed in next on 8 Oct said "the weight after that day is from follow-up weigh-ins"
+/// ([`logs_ended_note`]) where one run before 8 Oct said the trend did not cover the window.
+pub fn without_follow_up(data: &ParticipantData, to: NaiveDate) -> Option<ParticipantData> {
     let left = data
         .profile
         .withdrew
         .filter(|_| data.profile.follow_up_weigh_ins())?;
-    if !data.weights.iter().any(|w| w.date > left) {
+    if !data.weights.iter().any(|w| w.date > left && w.date <= to) {
         return None;
     }
     let mut cut = data.clone();
@@ -171,7 +175,7 @@ impl ModuleSet {
         as_of: NaiveDate,
         data: &ParticipantData,
     ) -> ModuleResults {
-        let cut = without_follow_up(data);
+        let cut = without_follow_up(data, period.to);
         let mut results = ModuleResults::default();
         // The same modules on the records up to the withdrawal day (only with follow-up
         // weigh-ins): the results of PROGRAM_DAYS_ONLY, and the flags raised without the

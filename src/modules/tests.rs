@@ -667,7 +667,7 @@ fn energy_is_given_the_records_up_to_the_withdrawal_day_only_after_stopping_the_
     );
     // The weekly table ends with the withdrawal week; the run on every weigh-in (what the
     // module was given before) differs.
-    let whole = without_follow_up(&stopped).expect("follow-up weigh-ins");
+    let whole = without_follow_up(&stopped, period.to).expect("follow-up weigh-ins");
     assert_eq!(whole.weights.last().map(|w| w.date), Some(left));
     let before: ModuleResults = {
         let mut r = ModuleResults::default();
@@ -691,7 +691,9 @@ fn energy_is_given_the_records_up_to_the_withdrawal_day_only_after_stopping_the_
     let (os, oc): (OutcomesView, OutcomesView) = (s.view().unwrap(), c.view().unwrap());
     assert_ne!(os.change_kg, oc.change_kg);
     // Without follow-up weigh-ins (consent, or none after the day) nothing is run twice.
-    assert!(without_follow_up(&consent).is_none());
+    assert!(without_follow_up(&consent, period.to).is_none());
+    // Nor with follow-up weigh-ins after the period's end only.
+    assert!(without_follow_up(&stopped, left).is_none());
 }
 
 /// A flag that only the follow-up weigh-ins of someone who stopped the program raise is kept

@@ -957,6 +957,36 @@ fn walk_minutes(raw: f64, t: &Thresholds) -> Option<f64> {
     (m >= t.min_walk_minutes && raw <= t.max_walk_minutes).then_some(m)
 }
 
+/// The intake cut an option prints, from the exact cut `exact` of the `energy` module's row
+/// (`combined` for "Some of each"; `intake` for eating less alone, with no walk and so no
+/// `least`): the multiple of 50 kcal nearest it among those that keep both limits,
+/// no more than `room` (the careful end of the intake less the floor) and no less than `least`
+/// (below it the rest would need more walking than the cap); when no multiple of 50 lies
+/// between them, the nearest multiple of 10, then of 1, then the exact cut, so that rounding
+/// never turns a feasible row into no offer. `None` when the exact cut itself breaks a limit,
+/// as the row is then not `feasible` (rounding does not make it so: SG-006 of the sample
+/// program, 355 kcal and 65 minutes, would have read 400 kcal and 59 minutes). Before, the cut
+/// was rounded down to 50: the sample program's SG-042 (1 Oct 2026), a `combined` row of 341
+/// kcal and 57.3 minutes, `feasible`, became 300 kcal and 64 minutes, over the cap of 60, and
+/// the report offered nothing.
+fn printed_cut(exact: f64, room: f64, least: f64) -> Option<f64> {
+    let fits = |c: f64| c <= room + 1e-9 && c >= least - 1e-9;
+    if !fits(exact) {
+        return None;
+    }
+    for step in [KCAL_STEP, 10.0, 1.0] {
+        // Down first: of two equally near, the smaller change.
+        let found = [fmt::floor_to(exact, step), fmt::ceil_to(exact, step)]
+            .into_iter()
+            .filter(|c| fits(*c))
+            .min_by(|a, b| (a - exact).abs().total_cmp(&(b - exact).abs()));
+        if found.is_some() {
+            return found;
+        }
+    }
+    Some(exact)
+}
+
 fn walk_for(kcal: f64, f: &Facts) -> Option<f64> {
     match (f.intake_need, f.walk_need) {
         (Some(need), Some(walk)) if need > 0.0 && walk > 0.0 => Some(walk * kcal / need),
@@ -1531,8 +1561,10 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     let mut dropped_intake = false;
 
     // Eat less only.
-    let cut = fmt::round_to(need, KCAL_STEP);
-    if cut >= t.min_intake_change_kcal && lower - cut >= floor {
+    // Rounded within the floor, as the module's `intake` row is checked: rounded to the
+    // nearest 50 alone, a cut of 280 kcal with 290 of room read 300 and was dropped.
+    let cut = printed_cut(need, lower - floor, f64::NEG_INFINITY).unwrap_or(0.0);
+    if cut >= t.min_intake_change_kcal {
         // Both frames when the food log and the weight trend disagree, so the amount "in all"
         // never reads as more than the person logs.
         let by_log = f
@@ -1566,10 +1598,14 @@ fn restart_loss(t: &Thresholds, f: &Facts, floor: f64) -> GuidanceView {
     // Some of each: half the change from intake (never past the floor at the lower bound),
     // the rest from walking. The `energy` module's `combined` row is sized by the same
     // function, so the tidy metrics carry the option offered here (its amounts unrounded).
-    let cut_mix = fmt::floor_to(
+    let cut_mix = printed_cut(
         energy_view::combined_intake_cut(need, lower, floor),
-        KCAL_STEP,
-    );
+        lower - floor,
+        f.walk_need
+            .filter(|w| *w > 0.0)
+            .map_or(need, |w| need - t.max_walk_minutes * need / w),
+    )
+    .unwrap_or(0.0);
     if cut_mix >= t.min_intake_change_kcal
         && let Some(m) = walk_for(need - cut_mix, f).and_then(|m| walk_minutes(m, t))
     {
@@ -1953,14 +1989,91 @@ mod tests {
         assert_eq!(g.options[0].intake_at_lower_bound, Some(1300.0));
         assert!(g.options[0].text.contains("550 kcal a day less"));
         assert!(g.options[0].text.contains("1,450 kcal a day in all"));
-        // Walking alone: 95 min > 60, not offered. Mix: 280 → 250 kcal, (560 − 250)/560 × 95
-        // = 52.6 → 55 min.
+        // Walking alone: 95 min > 60, not offered. Mix: 280 → 300 kcal (the nearest 50),
+        // (560 − 300)/560 × 95 = 44.1 → 45 min.
         assert_eq!(g.options.len(), 2);
-        assert_eq!(g.options[1].intake_cut_kcal, 250.0);
-        assert_eq!(g.options[1].walk_minutes, 55.0);
+        assert_eq!(g.options[1].intake_cut_kcal, 300.0);
+        assert_eq!(g.options[1].walk_minutes, 45.0);
         assert!(g.options_note.contains("1,200 kcal"));
         // Rate at the fast bound: 0.5 + 0.15 = 0.65 ≤ 0.8 (1 % of 80 kg).
         assert_eq!(g.options[0].rate_at_fast_bound, Some(0.65));
+    }
+
+    /// Rounding "Some of each" keeps an option the `energy` module calls feasible (sample
+    /// program, SG-042 on 1 Oct 2026: a `combined` row of 341 kcal and 57.3 minutes). Before,
+    /// the cut was rounded down to 300 kcal, which leaves 64 minutes, over the cap of 60, and
+    /// the report offered nothing.
+    #[test]
+    fn rounding_some_of_each_keeps_a_feasible_mix_within_both_limits() {
+        let t = Thresholds::default();
+        assert_eq!(t.max_walk_minutes, 60.0);
+        let mut f = facts();
+        // Need 682 kcal; walking alone 114.6 min, so half of it (341 kcal) leaves 57.3 min.
+        f.intake_need = Some(682.0);
+        f.walk_need = Some(114.6);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        let mix = g
+            .options
+            .iter()
+            .find(|o| o.text.starts_with("Some of each"))
+            .unwrap_or_else(|| panic!("no mix: {g:?}"));
+        // 350 kcal (nearest 50 to 341; 1,850 − 350 = 1,500 ≥ 1,200): (682 − 350)/682 × 114.6
+        // = 55.8 → 60 minutes.
+        assert_eq!((mix.intake_cut_kcal, mix.walk_minutes), (350.0, 60.0));
+        assert!(
+            mix.text
+                .contains("eat about 350 kcal a day less and walk about 60 minutes")
+        );
+
+        // The nearest multiple of 50 is used when both limits allow it, down on a tie…
+        assert_eq!(printed_cut(320.0, 650.0, 0.0), Some(300.0));
+        assert_eq!(printed_cut(325.0, 650.0, 0.0), Some(300.0));
+        // …the other one when the nearest breaks a limit (the floor, then the walking cap)…
+        assert_eq!(printed_cut(341.0, 343.7, 0.0), Some(300.0));
+        assert_eq!(printed_cut(320.0, 650.0, 310.0), Some(350.0));
+        // …a finer step when no multiple of 50 lies between the two limits…
+        assert_eq!(printed_cut(341.0, 343.7, 338.2), Some(340.0));
+        assert_eq!(printed_cut(341.4, 341.9, 341.1), Some(341.4));
+        // …and none when the module's own cut leaves too long a walk (not `feasible`).
+        assert_eq!(printed_cut(355.0, 523.0, 360.0), None);
+    }
+
+    /// Eating less alone keeps an option the `energy` module's `intake` row calls feasible: a
+    /// need of 280 kcal with 290 of room above the floor (careful end 1,490, floor 1,200).
+    /// Before, it was rounded to 300 kcal, past the floor, and dropped; a need just past the
+    /// room (310 with 300 of room, module: not feasible) was rounded to 300 and offered.
+    #[test]
+    fn eating_less_alone_is_rounded_within_the_floor() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        f.implied = Some(Est {
+            value: 1640.0,
+            lower: Some(1490.0),
+            upper: Some(1790.0),
+        });
+        f.intake_need = Some(280.0);
+        f.walk_need = Some(60.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        let eat_less = g
+            .options
+            .iter()
+            .find(|o| o.walk_minutes == 0.0)
+            .unwrap_or_else(|| panic!("no intake option: {g:?}"));
+        assert_eq!(eat_less.intake_cut_kcal, 250.0);
+        assert_eq!(eat_less.intake_at_lower_bound, Some(1240.0));
+        // 300 of room (careful end 1,500) and a need of 310: not feasible, not offered.
+        f.implied = Some(Est {
+            value: 1650.0,
+            lower: Some(1500.0),
+            upper: Some(1800.0),
+        });
+        f.intake_need = Some(310.0);
+        let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);
+        assert!(g.options.iter().all(|o| o.walk_minutes > 0.0), "{g:?}");
+        assert!(
+            g.options_note
+                .contains("Eating less alone is not suggested")
+        );
     }
 
     #[test]
@@ -2006,9 +2119,20 @@ mod tests {
             assert!(1800.0 - o.intake_cut_kcal >= 1200.0, "{o:?}");
             assert!(o.intake_at_lower_bound.unwrap() >= 1200.0, "{o:?}");
         }
-        // The mix: half of 750 = 375 → 350 kcal (the log leaves 600 of room), the rest walking:
-        // (750 − 350)/750 × 120 = 64 min > 60, so nothing is left to offer.
-        assert!(g.options.is_empty(), "{:?}", g.options);
+        // The mix: half of 750 = 375 kcal (the log leaves 600 of room), the rest walking:
+        // (750 − 375)/750 × 120 = 60 min, at the cap. Printed as 400 kcal, the multiple of 50
+        // nearest 375 that keeps the walk within the cap (350 would leave 64 min > 60; before,
+        // it was rounded down to 350 and nothing was offered): (750 − 400)/750 × 120 = 56 → 60.
+        assert_eq!(g.options.len(), 1, "{:?}", g.options);
+        assert!(
+            g.options[0].text.starts_with("Some of each"),
+            "{:?}",
+            g.options
+        );
+        assert_eq!(
+            (g.options[0].intake_cut_kcal, g.options[0].walk_minutes),
+            (400.0, 60.0)
+        );
         // A log that leaves room: the option gives both frames.
         f.logged = Some(2300.0);
         let g = compose(Phase::RestartLoss, &st(Plateau), &t, &f);

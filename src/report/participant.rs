@@ -281,11 +281,17 @@ pub fn build(
                 .max(1.0) as u64;
             let span = energy_window_words(window_days, p.enrolled, plan.period.to);
             // Someone who stopped the program and weighed in after: the energy figures come
-            // from the records up to that day (`modules::run::PROGRAM_DAYS_ONLY`).
+            // from the records up to that day (`modules::run::PROGRAM_DAYS_ONLY`). Only
+            // weigh-ins within the period count: a report for 1–15 Sep 2026 of someone who
+            // left on 8 Sep spoke of "your follow-up weigh-ins after it" when run after their
+            // follow-up visit on 28 Sep, which it does not show, and not when run before it.
             let follow_up_after = left.filter(|w| {
                 p.follow_up_weigh_ins()
                     && *w >= plan.period.from
-                    && data.weights.iter().any(|x| x.date > *w)
+                    && data
+                        .weights
+                        .iter()
+                        .any(|x| x.date > *w && x.date <= plan.period.to)
             });
             let (mut view, chart) = energy_section(
                 e,

@@ -1137,8 +1137,9 @@ fn the_tidy_options_and_the_report_call_the_same_walks_feasible() {
 /// calls an option `feasible` by its own limits, which the report does not share all of: the
 /// sample program as of 2026-10-01 had SG-042's `combined` row at 0.8 min/d, `feasible: yes`,
 /// while the report offers no walk under `guidance.min_walk_minutes` (10) (since the row is
-/// sized as the report's "Some of each", SG-042's is 57.3 min/d, and the report's cut, rounded
-/// down to 50 kcal, leaves over 60 minutes to walk); an intake change
+/// sized as the report's "Some of each", SG-042's is 341 kcal and 57.3 min/d; the report's cut,
+/// rounded down to 50 kcal, left 64 minutes to walk, over the cap of 60, and it offered
+/// nothing: now it rounds to 350, within both limits, and offers it); an intake change
 /// under `min_intake_change_kcal`, or one that takes the logged intake below the floor, was
 /// `yes` in tables.csv and absent from the report too. Each options row now has
 /// `offered_in_report`, which agrees with the report for every participant.
@@ -1188,14 +1189,17 @@ fn the_tidy_options_say_which_the_report_offered() {
     }
     assert!(offered > 5, "{offered}");
     assert!(
-        feasible_not_offered.contains(&"SG-042 combined".to_string()),
+        !feasible_not_offered.contains(&"SG-042 combined".to_string()),
         "{feasible_not_offered:?}"
     );
+    assert_eq!(rows["SG-042"]["3"]["kind"], "combined");
+    assert_eq!(rows["SG-042"]["3"]["offered_in_report"], "yes");
 }
 
 /// Every "Some of each" a report offers is a `combined` row of the `energy` module's options in
 /// `metrics/tables.csv`, marked `offered_in_report: yes`, with the intake cut the report prints
-/// before rounding. The module made its `combined` row only when eating less alone failed the
+/// before rounding (to the nearest 50 kcal). The module made its `combined` row only when
+/// eating less alone failed the
 /// floor, cut down to the floor, while the report offered its own split (half the change from
 /// intake, within the floor) to more people: as of 2026-10-01 SG-004, SG-039 and SG-045 read
 /// "Some of each" with no `combined` row, so `offered_in_report` could not show that offer.
@@ -1255,12 +1259,17 @@ fn every_some_of_each_in_a_report_is_a_combined_row_of_the_tidy_options() {
             .unwrap_or_else(|| panic!("{id}: \"Some of each\" in the report, no combined row"));
         assert_eq!(row["offered_in_report"], "yes", "{id}: {row:?}");
         assert_eq!(row["feasible"], "yes", "{id}: {row:?}");
-        // The report's cut is the row's, rounded down to 50 kcal.
+        // The report's cut is the row's, rounded to a multiple of 50 kcal next to it (the
+        // nearest, or the other when the nearest breaks the floor or the walking cap), and its
+        // walk stays within the cap.
         let cut = implied[id] - row["resulting_intake_kcal_per_day"].parse::<f64>().unwrap();
-        assert_eq!(printed, (cut / 50.0 + 1e-9).floor() * 50.0, "{id}: {cut}");
-        // Its walk covers at least the row's minutes (the rounded-down cut leaves a little more).
-        let row_minutes: f64 = row["change_per_day"].parse().unwrap();
-        assert!(minutes >= row_minutes, "{id}: {minutes} < {row_minutes}");
+        // On the sample the nearest always keeps both limits.
+        assert!(
+            (printed - cut).abs() <= 25.0 + 1e-9,
+            "{id}: {printed} for {cut}"
+        );
+        assert_eq!(printed % 50.0, 0.0, "{id}: {printed}");
+        assert!(minutes <= 60.0, "{id}: {minutes}");
     }
     for id in ["SG-004", "SG-039", "SG-045"] {
         assert!(mixed.contains(&id.to_string()), "{id}: {mixed:?}");

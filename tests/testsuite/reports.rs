@@ -2058,6 +2058,85 @@ fn a_follow_up_weigh_in_after_stopping_the_program_gives_a_weight_at_the_time_po
     );
 }
 
+/// The energy section's follow-up note ("your follow-up weigh-ins after it are not set against
+/// them") counts only weigh-ins within the period: SG-002, who left on 8 Sep 2026 and weighed in
+/// at follow-up on 28–30 Sep, has none in a report for 1–15 Sep, whatever day it is run. Before,
+/// the report for 1–15 Sep run on 1 Nov had the note (and one run on 16 Sep would not have).
+/// The same for the modules' second run on the records up to the day of leaving
+/// (`modules::run::without_follow_up`), whose note on the energy window said "the weight after
+/// that day is from follow-up weigh-ins" in a September report with follow-up weigh-ins in
+/// October only.
+#[test]
+fn the_follow_up_note_counts_only_weigh_ins_within_the_period() {
+    let prog = ProgramTest::sample();
+    let folder = prog.dir.join("participants/SG-002");
+    let left = "2026-09-08";
+    let profile = folder.join("profile.yaml");
+    let mut p = std::fs::read_to_string(&profile).unwrap();
+    assert!(!p.contains("withdrew"), "{p}");
+    p.push_str(&format!(
+        "withdrew: {left}\nwithdrawal_reason: stopped_program\n"
+    ));
+    std::fs::write(&profile, p).unwrap();
+    let weights = folder.join("weights.csv");
+    let mut kept: String = std::fs::read_to_string(&weights)
+        .unwrap()
+        .lines()
+        .filter(|l| l.starts_with("date") || &l[..10] <= left)
+        .map(|l| format!("{l}\n"))
+        .collect();
+    kept.push_str(
+        "2026-09-28,08:00,184.0,lb,clinic\n2026-09-29,08:00,183.6,lb,clinic\n2026-09-30,08:00,183.0,lb,clinic\n",
+    );
+    std::fs::write(&weights, kept).unwrap();
+    let note = "These figures use your records up to 8 Sep 2026, the day you left";
+    let report = |from: &str, to: &str, out: &str| {
+        let o = prog.run(&[
+            "run",
+            "{dir}",
+            "--from",
+            from,
+            "--to",
+            to,
+            "--as-of",
+            "2026-11-01",
+            "--only",
+            "SG-002",
+            "--out",
+            out,
+        ]);
+        assert!(o.code == 0 || o.code == 1, "{}", o.stderr);
+        std::fs::read_to_string(prog.dir.join(out).join("participants/SG-002.html")).unwrap()
+    };
+    // The half-month that ends before the follow-up visit: no follow-up weigh-in in it.
+    let early = report("2026-09-01", "2026-09-15", "early");
+    assert!(
+        early.contains("You left the program on 8 Sep 2026"),
+        "{early}"
+    );
+    assert!(!early.contains(note), "{early}");
+    // The whole month, with the follow-up weigh-ins in it: the note.
+    let month = report("2026-09-01", "2026-09-30", "month");
+    assert!(month.contains(note), "{month}");
+    // Follow-up weigh-ins in October only: the September report reads as it would without
+    // them, also in the energy module's note on the window its trend does not cover (it said
+    // "the weight after that day is from follow-up weigh-ins", which September does not have).
+    let text = std::fs::read_to_string(&weights).unwrap();
+    std::fs::write(
+        &weights,
+        text.replace("2026-09-2", "2026-10-2")
+            .replace("2026-09-30", "2026-10-30"),
+    )
+    .unwrap();
+    let later = report("2026-09-01", "2026-09-30", "later");
+    assert!(!later.contains(note), "{later}");
+    assert!(!later.contains("from follow-up weigh-ins"), "{later}");
+    assert!(
+        later.contains("The weight trend does not cover enough"),
+        "{later}"
+    );
+}
+
 /// Someone who stopped the program and whose follow-up weigh-ins alone raise clinical flags
 /// (SG-001 left on 15 Aug 2026 and fell to 47.5 kg, BMI about 18, by 29 Sep), and someone who
 /// left in the period with follow-up weigh-ins at its end (SG-002, left 8 Sep, weighed in on

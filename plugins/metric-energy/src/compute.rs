@@ -1697,9 +1697,20 @@ fn options_table(
         p.lin.rho * (target_slope - sl.value)
     };
     let new_intake = imp.value + d_ei;
-    // Checked on the uncertain side: the person may already eat as little as the lower bound
-    // of the implied intake.
-    let new_intake_low = imp.lower.unwrap_or(imp.value) + d_ei;
+    // Checked on the uncertain side, the careful end of the intake (one for this row and the
+    // `combined` row below): the person may already eat as little as the lower bound of the
+    // implied intake, or as their food log says when that is lower (a participant measures
+    // "less than now" against their own log). Before, this row was checked at the lower bound
+    // only, while the `combined` row and the report also checked the log.
+    let low = imp.lower.unwrap_or(imp.value);
+    let careful = crate::view::careful_intake(low, logged);
+    let by_log = careful < low;
+    let careful_words = if by_log {
+        "the food log"
+    } else {
+        "the low end of the estimate"
+    };
+    let new_intake_low = careful + d_ei;
     let floor = p.floor(s);
     let (feasible, reason) = if too_fast {
         (false, fast_reason.clone())
@@ -1716,8 +1727,13 @@ fn options_table(
             false,
             format!(
                 "It would bring intake to about {new_intake:.0} kcal a day, but possibly to \
-                 {new_intake_low:.0} (the low end of the estimate), below {floor:.0} kcal a day; \
-                 intakes that low need a clinician's supervision."
+                 {new_intake_low:.0} ({}), below {floor:.0} kcal a day; intakes that low need \
+                 a clinician's supervision.",
+                if by_log {
+                    "by the food log"
+                } else {
+                    "the low end of the estimate"
+                }
             ),
         )
     } else if already {
@@ -1798,8 +1814,6 @@ fn options_table(
     // split to more people (sample program, 1 Oct 2026: SG-004, SG-039 and SG-045 read "Some of
     // each" with no `combined` row in metrics/tables.csv).
     let need = -d_ei;
-    let low = imp.lower.unwrap_or(imp.value);
-    let careful = crate::view::careful_intake(low, logged);
     let cut = crate::view::combined_intake_cut(need, careful, floor);
     let rest_kcal = (need - cut).max(0.0);
     let rest_minutes = if rest_kcal == 0.0 {
@@ -1809,14 +1823,8 @@ fn options_table(
     } else {
         f64::INFINITY
     };
-    let by_log = careful < low;
     // The intake it leads to, and the floor where it belongs: at the careful end ("down to
     // 1500" beside a resulting intake of 2505 read as "eat 1500 kcal a day").
-    let careful_words = if by_log {
-        "the food log"
-    } else {
-        "the low end of the estimate"
-    };
     let (feasible, reason) = if too_fast {
         (false, fast_reason)
     } else if already {

@@ -97,7 +97,7 @@ code_enum! {
 /// careful end of the intake (`careful_intake`: the implied intake's lower bound, or the mean
 /// logged intake when that is lower), and never below zero; the rest comes from walking. The
 /// module writes its `combined` row with it and the report sizes its "Some of each" with it
-/// (rounded down to its step), so the two are one option.
+/// (rounded to its step within both limits), so the two are one option.
 pub fn combined_intake_cut(need: f64, careful_intake: f64, floor: f64) -> f64 {
     (need / 2.0).min(careful_intake - floor).max(0.0)
 }

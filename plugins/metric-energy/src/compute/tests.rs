@@ -476,7 +476,8 @@ fn options_refuse_unsafe_targets_and_intakes_below_the_floor() {
 /// the floor: half the intake change, within the floor at the careful end of the intake (the
 /// implied intake's lower bound, or the food log when lower), the rest by walking. Before, a
 /// man whose intake cut alone was safe had no `combined` row, though his report offered "Some
-/// of each" (the sample program's SG-004, SG-039 and SG-045 as of 2026-10-01).
+/// of each" (the sample program's SG-004, SG-039 and SG-045 as of 2026-10-01). The `intake`
+/// row is checked at the same careful end (before, at the implied lower bound only).
 #[test]
 fn the_combined_option_is_half_the_change_within_the_floor_at_the_careful_end() {
     let enrolled = d("2027-01-04");
@@ -525,6 +526,19 @@ fn the_combined_option_is_half_the_change_within_the_floor_at_the_careful_end() 
             // A log of 1650 leaves 150 kcal of room above the floor of 1500.
             Some(_) => {
                 assert!(careful < low && careful - 1500.0 < need / 2.0);
+                // Eating less alone is checked at the same careful end: it would take the log
+                // below the floor (before, it was `feasible` by the implied lower bound alone,
+                // while the report, going by the log, did not offer it).
+                assert!(low - need >= 1500.0, "{low} {need}");
+                assert_eq!(cell_text(opt, 0, "feasible"), "no", "{low} {need}");
+                assert!(
+                    cell_text(opt, 0, "reason").contains(&format!(
+                        "possibly to {:.0} (by the food log), below 1500",
+                        careful - need
+                    )),
+                    "{}",
+                    cell_text(opt, 0, "reason")
+                );
                 assert!((cut - 150.0).abs() < 1e-6, "{cut}");
                 assert!(
                     cell_text(opt, 2, "reason").contains("1500 by the food log"),
