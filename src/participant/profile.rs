@@ -6,7 +6,7 @@ use super::table::FileCtx;
 use crate::diag::Diagnostic;
 use crate::program::TargetsDef;
 use crate::program::load::key_line;
-use chrono::{Datelike, NaiveDate};
+use chrono::NaiveDate;
 use cohortpress_metric_api::{Profile, Sex, Targets, WithdrawalReason};
 use serde::Deserialize;
 use std::collections::BTreeMap;
@@ -86,9 +86,10 @@ pub struct ProfileDef {
 /// not pregnant) and steps in the weigh-ins that are real changes of body weight (counted in
 /// the change since the start), and weigh-ins with a BMI of 60 or more, or in pounds under
 /// 18.5, that were checked (read as written rather than refused as the other unit).
-pub const KNOWN_FLAGS: [&str; 5] = [
+pub const KNOWN_FLAGS: [&str; 6] = [
     "glucose-lowering-medication",
     "pregnant",
+    cohortpress_metric_outcomes::BREASTFEEDING_FLAG,
     cohortpress_metric_trend::view::REAL_STEPS_FLAG,
     HIGH_BMI_CHECKED_FLAG,
     LOW_BMI_CHECKED_FLAG,
@@ -104,7 +105,8 @@ pub const LOW_BMI_CHECKED_FLAG: &str = "low-bmi-checked";
 
 /// A profile flag in its written form: case, spaces and underscores do not matter
 /// (`Glucose_lowering medication` is `glucose-lowering-medication`), and `pregnancy` is
-/// `pregnant`. A misspelt flag that changes nothing would silently drop a caution.
+/// `pregnant`, `breast feeding` and `lactating` are `breastfeeding`. A misspelt flag that
+/// changes nothing would silently drop a caution.
 pub fn normalise_flag(flag: &str) -> String {
     let f = flag
         .trim()
@@ -113,10 +115,10 @@ pub fn normalise_flag(flag: &str) -> String {
         .filter(|w| !w.is_empty())
         .collect::<Vec<_>>()
         .join("-");
-    if f == "pregnancy" {
-        "pregnant".into()
-    } else {
-        f
+    match f.as_str() {
+        "pregnancy" => "pregnant".into(),
+        "breast-feeding" | "lactating" => "breastfeeding".into(),
+        _ => f,
     }
 }
 
@@ -272,14 +274,8 @@ fn mapping_start(text: &str) -> (u64, u64) {
     (1, 1)
 }
 
-/// Whole years from `birth` to `on`.
-pub fn whole_years(birth: NaiveDate, on: NaiveDate) -> i32 {
-    let mut y = on.year() - birth.year();
-    if (on.month(), on.day()) < (birth.month(), birth.day()) {
-        y -= 1;
-    }
-    y
-}
+/// Whole years from `birth` to `on` (the one calendar rule every age cut-off uses).
+pub use cohortpress_metric_api::whole_years;
 
 /// Parses and checks `profile.yaml` for the folder `folder_id`, in a program whose last day is
 /// `program_end`. Returns the profile when it has no errors (warnings may still be pushed).
@@ -698,6 +694,20 @@ flags: [glucose-lowering-medication]
             vec!["glucose-lowering-medication", "pregnant"]
         );
         assert!(d.is_empty(), "{d:?}");
+        // Breastfeeding, however written, is a known flag (it was "unknown … changes nothing").
+        for written in [
+            "breastfeeding",
+            "Breast feeding",
+            "breast-feeding",
+            "lactating",
+        ] {
+            let (p, d) = parse(&GOOD.replace(
+                "flags: [glucose-lowering-medication]",
+                &format!("flags: [{written}]"),
+            ));
+            assert_eq!(p.unwrap().flags, vec!["breastfeeding"], "{written}");
+            assert!(d.is_empty(), "{written}: {d:?}");
+        }
         let (p, d) = parse(&GOOD.replace(
             "flags: [glucose-lowering-medication]",
             "flags: [glucose-lowering-medicine]",

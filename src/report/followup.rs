@@ -108,6 +108,9 @@ pub fn reason(code: &str) -> &'static str {
         "lab_low_glucose" => {
             "Latest fasting glucose below 70 mg/dL (3.9 mmol/L), low blood sugar (ADA Standards of Care)"
         }
+        "lab_severe_bp" => {
+            "Latest blood pressure above 180/120 mmHg, severe high blood pressure (ACC/AHA 2017): to be checked soon"
+        }
         "medication_review" => {
             "Takes a glucose-lowering medicine while losing fast, eating little or with a low fasting glucose: the dose may need review"
         }
@@ -118,6 +121,9 @@ pub fn reason(code: &str) -> &'static str {
             "Weigh-ins jumped by several kilograms within days and stayed there (a new scale, or a real change of fluid or weight?)"
         }
         "pregnancy" => "Pregnancy noted in the profile: the report makes no suggestions for change",
+        "breastfeeding" => {
+            "Breastfeeding noted in the profile: the report makes no suggestions for change"
+        }
         LABS_NOT_READ => {
             "Lab results that could not be read, so they were not checked against the diabetes range or any other cut-off: check the values in labs.csv"
         }

@@ -1035,15 +1035,32 @@ fn headline(
         // whether it has levelled off" (4.4 a week against a target of 3, losing 0.15 kg a
         // week): a slow change near the plateau band's edge needs more weeks, not more
         // weigh-ins.
-        // `unclear` is a pace the weigh-ins do not pin down: inside the plateau band with an
-        // interval past its edge, or beyond it with an interval past zero (a pace of −0.45
-        // kg/week, 95 % −1.0 to +0.1, read "changed little"). The range says which.
-        Status::Unclear if weighs_in_enough => format!(
-            "Your weigh-ins of the last four weeks put your weight's pace at about {rate_s}{rate_range}, too uncertain yet to tell whether it has levelled off or is still changing; the next weeks' weigh-ins will show it."
-        ),
-        Status::Unclear => format!(
-            "Your weigh-ins of the last four weeks put your weight's pace at about {rate_s}{rate_range}; more regular weigh-ins would show whether it has levelled off or is still changing."
-        ),
+        // `unclear` is a pace the weigh-ins do not pin down against the plateau band: inside it
+        // with an interval past its edge, or beyond it with an interval past zero (a pace of
+        // −0.45 kg/week, 95 % −1.0 to +0.1, read "changed little"). A range wholly on one side
+        // of zero is a slow fall or rise near the band's edge (demo program, SG-070: −0.27
+        // kg/week, 95 % −0.29 to −0.24, at a band of 0.27, is no "too uncertain"); one across
+        // zero leaves the direction open.
+        Status::Unclear => {
+            let next = if weighs_in_enough {
+                "the next weeks' weigh-ins will show"
+            } else {
+                "more regular weigh-ins would show"
+            };
+            if trend.is_some_and(guidance::still_falling) {
+                format!(
+                    "Your weight has come down slowly over the last four weeks, at about {rate_s}{rate_range}, near the pace the program counts as levelling off; {next} whether it is levelling off."
+                )
+            } else if trend.is_some_and(guidance::still_rising) {
+                format!(
+                    "Your weight has edged up slowly over the last four weeks, at about {rate_s}{rate_range}, near the pace the program counts as holding steady; {next} whether it is still rising."
+                )
+            } else {
+                format!(
+                    "Your weigh-ins of the last four weeks put your weight's pace at about {rate_s}{rate_range}, too uncertain yet to tell whether it is going down, holding steady or going up; {next} which."
+                )
+            }
+        }
         Status::InsufficientData => match joined_recently {
             // Not a shortfall of theirs: the weeks have not passed yet.
             Some(e) => format!(
@@ -2634,8 +2651,8 @@ mod activity_unread_tests {
         assert_eq!(
             sparse,
             "Your weigh-ins of the last four weeks put your weight's pace at about −0.15 kg/week \
-             (95 % range −0.31 to +0.01 kg/week); more regular weigh-ins would show whether it \
-             has levelled off or is still changing."
+             (95 % range −0.31 to +0.01 kg/week), too uncertain yet to tell whether it is going \
+             down, holding steady or going up; more regular weigh-ins would show which."
         );
         let regular = headline(
             Some(&t),
@@ -2650,8 +2667,8 @@ mod activity_unread_tests {
         assert_eq!(
             regular,
             "Your weigh-ins of the last four weeks put your weight's pace at about −0.15 kg/week \
-             (95 % range −0.31 to +0.01 kg/week), too uncertain yet to tell whether it has \
-             levelled off or is still changing; the next weeks' weigh-ins will show it."
+             (95 % range −0.31 to +0.01 kg/week), too uncertain yet to tell whether it is going \
+             down, holding steady or going up; the next weeks' weigh-ins will show which."
         );
         // A pace beyond the band whose range reaches past zero is not "little change".
         t.slope_kg_per_week.value = Some(-0.45);
@@ -2663,6 +2680,27 @@ mod activity_unread_tests {
             "{wide}"
         );
         assert!(!wide.contains("little"), "{wide}");
+        // A narrow range below zero at the band's edge is a slow fall, not "too uncertain"
+        // (demo program, SG-070).
+        t.slope_kg_per_week.value = Some(-0.27);
+        t.slope_kg_per_week.lower = Some(-0.29);
+        t.slope_kg_per_week.upper = Some(-0.24);
+        assert_eq!(
+            plain_headline(&t),
+            "Your weight has come down slowly over the last four weeks, at about −0.27 kg/week \
+             (95 % range −0.29 to −0.24 kg/week), near the pace the program counts as levelling \
+             off; more regular weigh-ins would show whether it is levelling off."
+        );
+        t.slope_kg_per_week.value = Some(0.2);
+        t.slope_kg_per_week.lower = Some(0.05);
+        t.slope_kg_per_week.upper = Some(0.35);
+        assert!(
+            plain_headline(&t).starts_with(
+                "Your weight has edged up slowly over the last four weeks, at about +0.20 kg/week"
+            ),
+            "{}",
+            plain_headline(&t)
+        );
     }
 
     /// "Going down, by about −1.32 kg/week" said the sign twice.

@@ -5,7 +5,7 @@
 
 use crate::Targets;
 use crate::units::{Length, Mass};
-use chrono::NaiveDate;
+use chrono::{Datelike, NaiveDate};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
@@ -95,13 +95,37 @@ impl Profile {
         self.withdrew.is_some() && self.withdrawal_reason == WithdrawalReason::StoppedProgram
     }
 
-    /// Age in years on day `d` (fractional), from the birth date when known.
+    /// Age in years on day `d` (fractional), from the birth date when known. For the terms of
+    /// a regression equation in age (Mifflin–St Jeor, Harris–Benedict, Jackson 2002): a
+    /// continuous predictor, with no step on a birthday.
     pub fn age_on(&self, d: NaiveDate) -> f64 {
         match self.birth_date {
             Some(b) => (d - b).num_days() as f64 / 365.2425,
             None => self.age_years + (d - self.enrolled).num_days() as f64 / 365.2425,
         }
     }
+
+    /// Age in whole completed years on day `d`, for every age cut-off (70 for older adults,
+    /// an equation's age bands): by the calendar from the birth date, so a birthday is reached
+    /// on its day and not before (`age_on` is days / 365.2425, which put someone born on
+    /// 1955-07-01 at 70.00007 on 2025-06-30, the day before their 70th birthday); without one,
+    /// the age given at enrolment (whole, or floored) plus the anniversaries of enrolment.
+    pub fn whole_years_on(&self, d: NaiveDate) -> f64 {
+        match self.birth_date {
+            Some(b) => f64::from(whole_years(b, d)),
+            None => (self.age_years + f64::from(whole_years(self.enrolled, d))).floor(),
+        }
+    }
+}
+
+/// Whole years from `from` to `to` by the calendar: one more on each anniversary of `from`
+/// (of 29 February, on 1 March in a common year); negative when `to` is before `from`.
+pub fn whole_years(from: NaiveDate, to: NaiveDate) -> i32 {
+    let mut y = to.year() - from.year();
+    if (to.month(), to.day()) < (from.month(), from.day()) {
+        y -= 1;
+    }
+    y
 }
 
 /// One weigh-in.
@@ -312,5 +336,35 @@ impl ParticipantData {
     pub fn bmi(&self, weight: crate::units::Mass) -> f64 {
         let m = self.profile.height.m();
         weight.kg() / (m * m)
+    }
+}
+
+#[cfg(test)]
+mod age_tests {
+    use super::*;
+
+    fn d(s: &str) -> NaiveDate {
+        NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap()
+    }
+
+    /// Whole completed years by the calendar: the fractional age (days / 365.2425) reached 70
+    /// on the eve of the 70th birthday for a span with 18 leap days.
+    #[test]
+    fn whole_years_turn_on_the_birthday() {
+        let mut p = crate::fixture::participant().profile;
+        p.birth_date = Some(d("1955-07-01"));
+        assert!(p.age_on(d("2025-06-30")) >= 70.0);
+        assert_eq!(p.whole_years_on(d("2025-06-30")), 69.0);
+        assert_eq!(p.whole_years_on(d("2025-07-01")), 70.0);
+        // Born on 29 February: a year older on 1 March in a common year.
+        p.birth_date = Some(d("1956-02-29"));
+        assert_eq!(p.whole_years_on(d("2026-02-28")), 69.0);
+        assert_eq!(p.whole_years_on(d("2026-03-01")), 70.0);
+        // Without a birth date: the age at enrolment plus the anniversaries of enrolment.
+        p.birth_date = None;
+        p.age_years = 69.0;
+        p.enrolled = d("2025-04-01");
+        assert_eq!(p.whole_years_on(d("2026-03-31")), 69.0);
+        assert_eq!(p.whole_years_on(d("2026-04-01")), 70.0);
     }
 }

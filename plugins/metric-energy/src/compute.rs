@@ -421,7 +421,7 @@ impl Person<'_> {
             .equation
             .needs_lean_mass()
             .then(|| self.model.lean_for_fat(self.model.fat_for_weight(bw)));
-        let age = self.data.profile.age_on(d);
+        let age = self.equation.age_on(&self.data.profile, d);
         either_sex(self.sex, |sex| {
             self.equation
                 .resting_energy(sex, bw, self.height_cm, age, lean)
@@ -819,8 +819,9 @@ fn start<'a>(
         equation = RestingEquation::MifflinStJeor;
     }
     let lean0 = equation.needs_lean_mass().then_some(bw0 - fm0);
+    let eq_age0 = equation.age_on(&data.profile, data.profile.enrolled);
     let (rmr0, rmr0_sex_sd) = either_sex(sex, |sex| {
-        equation.resting_energy(sex, bw0, height_cm, age0, lean0)
+        equation.resting_energy(sex, bw0, height_cm, eq_age0, lean0)
     });
     let person = Person {
         data,
@@ -845,6 +846,14 @@ fn start<'a>(
             bf_source,
         },
     ))
+}
+
+/// Variance of the energy balance ρ_tissue·s̄ (the energy stored or released by the weight
+/// change, kcal/d), kcal²/d²: (ρ_tissue·SD_s)² + (SD_ρ·ρ_tissue·s̄)², the energy density sharing
+/// ρ's relative SD as in [`Person::tdee_change_var`]. The baseline requirement and ε·ΔBW are in
+/// both the implied intake and the total expenditure, and cancel.
+fn stored_var(slope: f64, slope_sd: f64, ed: f64) -> f64 {
+    (ed * slope_sd).powi(2) + (RHO_REL_SD * ed * slope).powi(2)
 }
 
 /// The energy state over the last `window_days` of the period.
@@ -872,6 +881,9 @@ struct Current {
     /// SD of the current energy balance without the baseline requirement (it cancels in
     /// forecasts), kcal/d.
     balance_sd: f64,
+    /// SD of the energy balance printed beside the implied intake and the total expenditure
+    /// (their difference, ρ_tissue·s̄), kcal/d: [`Person::stored_var`].
+    stored_sd: f64,
 }
 
 /// Why an implied intake is not energy balance.
@@ -977,13 +989,14 @@ fn current_state(
     // Expenditure: by energy balance when the intake is implied (intake minus the energy
     // stored, ρ_stored·dBW/dt with the energy density of the tissue change; Hall 2008 Int J
     // Obes 32:573, from memory), else resting × the person's PAL + logged activity.
-    let (tdee, tdee_sd) = match (implied, slope) {
+    let (tdee, tdee_sd, stored_sd) = match (implied, slope) {
         (Some(i), Some(sl)) => {
             let ed =
                 crate::dynamics::energy_density_of_weight_change(p.model.fat_for_weight(bw_window));
             (
                 i.value - ed * sl.value,
                 (baseline.var + p.tdee_change_var(bw_window, sl.value, band_sd(&sl), ed)).sqrt(),
+                stored_var(sl.value, band_sd(&sl), ed).sqrt(),
             )
         }
         // Resting × PAL: the baseline requirement's uncertainty (activity level and resting
@@ -991,6 +1004,7 @@ fn current_state(
         _ => (
             rmr * p.model.pal + activity,
             baseline.var.sqrt() * rmr * p.model.pal / p.model.ei0.max(1.0),
+            0.0,
         ),
     };
     // Under-reporting: the person's own share from every block of logs and trend (the joint
@@ -1029,6 +1043,7 @@ fn current_state(
         tdee_sd,
         underreport,
         balance_sd,
+        stored_sd,
     }
 }
 
@@ -1122,7 +1137,20 @@ fn push_current(out: &mut ModuleOutput, p: &Person<'_>, cur: &Current, left_befo
         "kcal/d",
         "Implied minus logged intake (positive: more eaten than logged)",
     );
-    let balance = implied.map(|i| i.map(|x| x - cur.tdee));
+    // The balance is the implied intake minus the total expenditure, ρ_tissue·s̄: the baseline
+    // requirement is in both and cancels, so its interval is that of the energy stored, not the
+    // implied intake's shifted (which carried the baseline's uncertainty: +347 kcal/d with a
+    // 95 % interval of −130 to +825 for a weight rising 0.37 kg a week, 95 % 0.28 to 0.45,
+    // where the energy stored gives +242 to +452; hand-made participant, clinical28 helper).
+    let h = Z_95 * cur.stored_sd;
+    let balance = implied.map(|i| {
+        let b = i.value - cur.tdee;
+        Band {
+            value: b,
+            lower: Some(b - h),
+            upper: Some(b + h),
+        }
+    });
     out.push_interval(
         names::ENERGY_BALANCE_KCAL_PER_DAY,
         balance.map(|b| b.value),

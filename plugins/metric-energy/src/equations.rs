@@ -61,6 +61,19 @@ impl RestingEquation {
         Self::ALL.into_iter().find(|e| e.code() == code)
     }
 
+    /// The age this equation reads on day `d`: whole completed years for Henry's age bands
+    /// (an age cut-off: 30 is reached on the 30th birthday, where days / 365.2425 gives 29.9993
+    /// for a 30-year span with 7 leap days), fractional years for the equations with
+    /// an age term (Mifflin–St Jeor, Harris–Benedict: a regression on age as a continuous
+    /// predictor, so no step of 5 kcal/d on a birthday; whole years would also bias the term by
+    /// half a year on average).
+    pub fn age_on(self, profile: &cohortpress_metric_api::Profile, d: chrono::NaiveDate) -> f64 {
+        match self {
+            RestingEquation::Henry => profile.whole_years_on(d),
+            _ => profile.age_on(d),
+        }
+    }
+
     /// Whether the equation needs lean body mass (and so a body-fat value).
     pub fn needs_lean_mass(self) -> bool {
         matches!(
@@ -253,6 +266,26 @@ mod tests {
         assert_abs_diff_eq!(at30, 11.4 * 80.0 + 541.0 * 1.8 - 137.0, epsilon = 1e-9);
         let below = henry(Sex::Male, 80.0, 180.0, 29.99);
         assert_abs_diff_eq!(below, 14.4 * 80.0 + 313.0 * 1.8 + 113.0, epsilon = 1e-9);
+    }
+
+    /// Henry's bands are age cut-offs: 30 is reached on the 30th birthday. Days / 365.2425 put
+    /// someone born 1997-03-05 at 29.9993 on 2027-03-05, their 30th birthday (a 30-year span
+    /// with 7 leap days), still in the 18–30 band; the equations with an age term keep the
+    /// fractional age.
+    #[test]
+    fn henry_reads_whole_years_and_the_age_term_equations_fractional_ones() {
+        let mut p = cohortpress_metric_api::fixture::participant().profile;
+        p.birth_date = chrono::NaiveDate::from_ymd_opt(1997, 3, 5);
+        let birthday = chrono::NaiveDate::from_ymd_opt(2027, 3, 5).unwrap();
+        assert!(p.age_on(birthday) < 30.0);
+        assert_eq!(RestingEquation::Henry.age_on(&p, birthday), 30.0);
+        assert_eq!(
+            RestingEquation::MifflinStJeor.age_on(&p, birthday),
+            p.age_on(birthday)
+        );
+        let age = RestingEquation::Henry.age_on(&p, birthday);
+        let r = RestingEquation::Henry.resting_energy(Sex::Male, 80.0, 180.0, age, None);
+        assert_abs_diff_eq!(r, 11.4 * 80.0 + 541.0 * 1.8 - 137.0, epsilon = 1e-9);
     }
 
     #[test]

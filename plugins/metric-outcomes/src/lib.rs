@@ -75,6 +75,12 @@
 //!   value up to `period.to` of each test (fasting glucose, HbA1c).
 //! * `lab_low_glucose` (clinical): the latest fasting glucose is below 70 mg/dL (3.9 mmol/L),
 //!   ADA's level 1 hypoglycaemia (also a censored `< 3.0 mmol/L`).
+//! * `lab_severe_bp` (clinical): the latest systolic blood pressure is above 180 mmHg or the
+//!   latest diastolic above 120 mmHg, severe hypertension (the ACC/AHA 2017 guideline's
+//!   "hypertensive crisis", Whelton et al. 2018, Hypertension 71:e13; from memory): a reading
+//!   for a licensed clinician soon, and no time to start eating less or walking more on a
+//!   report's suggestion (the report holds its suggestions). The table still shows blood
+//!   pressure as `recorded`, with no class below that level.
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
 //!   `fast_loss`, `low_intake`, `very_low_intake`, `below_resting_intake` or `lab_low_glucose`
 //!   was raised, or the `energy` module (when it
@@ -103,6 +109,11 @@
 //! * `pregnancy` (clinical): the profile carries `pregnant`. Loss targets, the intake floors
 //!   and the energy model are for adults who are not pregnant, so the report holds every
 //!   suggestion and points to a clinician.
+//! * `breastfeeding` (clinical): the profile carries `breastfeeding`. Milk takes energy the
+//!   energy model does not count (a lactating woman's requirement is several hundred kcal a day
+//!   above her non-lactating one: IOM 2005, Dietary Reference Intakes for Energy; from memory),
+//!   and the intake floors are for adults who are not breastfeeding, so the report holds every
+//!   suggestion and points to a clinician or midwife.
 //! * `insufficient_data` (info): no weigh-in yet.
 //!
 //! # Cut points
@@ -171,6 +182,8 @@ pub const BELOW_RESTING_MIN_LOGGED_DAYS: usize = 8;
 pub const GLUCOSE_LOWERING_FLAG: &str = "glucose-lowering-medication";
 /// Profile flag for a pregnancy.
 pub const PREGNANCY_FLAG: &str = "pregnant";
+/// Profile flag for breastfeeding.
+pub const BREASTFEEDING_FLAG: &str = "breastfeeding";
 /// Default of `underweight_bmi_below`, kg/m²: below it `low_bmi` is raised whatever the trend
 /// (WHO 2000, Technical Report Series 894: underweight is BMI < 18.5).
 pub const UNDERWEIGHT_BMI_BELOW: f64 = 18.5;
@@ -181,7 +194,8 @@ pub const LOW_BMI_LOSING_BELOW: f64 = 20.0;
 /// whose BMI counts as low below 22 (GLIM criteria: low BMI < 20 kg/m² under 70 years, < 22 at
 /// 70 and over; Cederholm et al. 2019, Clin Nutr 38:1–9, see the module notes).
 pub const LOW_BMI_LOSING_BELOW_70_PLUS: f64 = 22.0;
-/// Age from which `low_bmi_losing_below_70_plus` applies, years (GLIM 2019, as above).
+/// Age from which `low_bmi_losing_below_70_plus` applies, whole completed years
+/// (`Profile::whole_years_on`; GLIM 2019, as above).
 pub const OLDER_ADULT_AGE: f64 = 70.0;
 
 /// Round-off allowance at cut points (see the crate docs).
@@ -394,7 +408,12 @@ fn fasting_glucose_class(mmol_l: f64) -> LabCategory {
 /// level 1 hypoglycaemia (ADA Standards of Care in Diabetes 2025, §6, "Hypoglycemia"; from
 /// memory). A fasting value this low in someone losing weight on a reduced intake (or taking a
 /// glucose-lowering drug) is for a licensed clinician, not "normal".
-const LOW_GLUCOSE_MG_DL: f64 = 70.0;
+pub const LOW_GLUCOSE_MG_DL: f64 = 70.0;
+
+/// Systolic and diastolic blood pressure above which a reading is severe hypertension, mmHg:
+/// the ACC/AHA 2017 guideline's "hypertensive crisis", above 180 and/or above 120 (Whelton et
+/// al. 2018, Hypertension 71:e13; from memory).
+pub const SEVERE_BP_MMHG: (f64, f64) = (180.0, 120.0);
 
 /// Waist-circumference risk category (Europid cut points): `not_increased_risk`,
 /// `increased_risk` or `substantially_increased_risk`.
@@ -865,6 +884,12 @@ impl MetricModule for OutcomesModule {
                     "latest fasting glucose below 70 mg/dL (3.9 mmol/L), low blood sugar",
                 ),
                 OutputSpec::new(
+                    OutcomesFlag::LabSevereBp.as_str(),
+                    "flag",
+                    "",
+                    "latest blood pressure above 180 mmHg systolic or 120 mmHg diastolic",
+                ),
+                OutputSpec::new(
                     OutcomesFlag::FastGain.as_str(),
                     "flag",
                     "",
@@ -875,6 +900,12 @@ impl MetricModule for OutcomesModule {
                     "flag",
                     "",
                     "pregnancy noted in the profile (holds every suggestion)",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::Breastfeeding.as_str(),
+                    "flag",
+                    "",
+                    "breastfeeding noted in the profile (holds every suggestion)",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::MedicationReview.as_str(),
@@ -932,7 +963,13 @@ impl MetricModule for OutcomesModule {
         push_fast_gain_flag(&mut output, ctx, &w.levels);
         let low_intake = push_intake_flags(&mut output, ctx, data);
         let below_resting = push_below_resting_flag(&mut output, ctx, data, w.current);
-        push_low_bmi_flag(&mut output, ctx, bmi1, &w, profile.age_on(ctx.period.to));
+        push_low_bmi_flag(
+            &mut output,
+            ctx,
+            bmi1,
+            &w,
+            profile.whole_years_on(ctx.period.to),
+        );
         let low_glucose = push_lab_flags(&mut output, &labs, profile.sex);
         // The energy module, when it ran before this one, says when the weight trend implies
         // an intake below a very-low-calorie diet's (its clinical flag): on a glucose-lowering
@@ -971,6 +1008,19 @@ impl MetricModule for OutcomesModule {
                 "The profile notes a pregnancy. Weight change and eating during pregnancy \
                  should be guided by a licensed clinician or midwife; this report's loss \
                  targets and estimates are for adults who are not pregnant.",
+            );
+        }
+        if profile.flags.iter().any(|f| f == BREASTFEEDING_FLAG) {
+            // Milk takes energy the model does not count (IOM 2005 DRI for energy: several
+            // hundred kcal a day; from memory), and the floors are for adults who are not
+            // breastfeeding: the report holds every suggestion (common practice).
+            output.push_flag(
+                OutcomesFlag::Breastfeeding.as_str(),
+                FlagSeverity::Clinical,
+                "The profile notes breastfeeding. Making milk takes several hundred kcal a day \
+                 that this report's energy figures do not count, and its intake floors are for \
+                 adults who are not breastfeeding; eating and weight while breastfeeding \
+                 should be guided by a licensed clinician or midwife.",
             );
         }
         Ok(output)
@@ -1784,11 +1834,49 @@ fn cut_words(v: f64) -> String {
 /// `lab_low_glucose` was raised.
 fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Sex>) -> bool {
     let mut low_glucose = false;
+    // One reading, systolic and diastolic: one flag naming what is above the line.
+    let mut severe_bp: Vec<String> = Vec::new();
     let mut latest: BTreeMap<LabTest, &LabResult> = BTreeMap::new();
     for l in labs {
         latest.insert(l.test, l);
     }
     for l in latest.values() {
+        // Above the severe-hypertension line (strictly: 180/120 itself is not above it; a
+        // censored `> 180` is above it, a `< 190` is not known to be).
+        let severe_cut = match l.test {
+            LabTest::SystolicBp => Some(SEVERE_BP_MMHG.0),
+            LabTest::DiastolicBp => Some(SEVERE_BP_MMHG.1),
+            _ => None,
+        };
+        if let Some(cut) = severe_cut {
+            let above = match l.censored {
+                None | Some(Censor::AtLeast) => l.value > cut + CUT_EPS,
+                Some(Censor::Above) => l.value >= cut - CUT_EPS,
+                Some(Censor::Below) | Some(Censor::AtMost) => false,
+            };
+            if above {
+                let q = l
+                    .censored
+                    .map_or(String::new(), |c| format!("{} ", c.symbol()));
+                // Whole mmHg as measured; a decimal only when the value has one, so that 180.4
+                // is not printed "180" beside "above 180".
+                let shown = if (l.value - l.value.round()).abs() < 1e-9 {
+                    format!("{:.0}", l.value)
+                } else {
+                    format!("{:.1}", l.value)
+                };
+                severe_bp.push(format!(
+                    "{} {q}{shown} mmHg on {}",
+                    if l.test == LabTest::SystolicBp {
+                        "systolic"
+                    } else {
+                        "diastolic"
+                    },
+                    l.date
+                ));
+            }
+            continue;
+        }
         let category = lab_category(l, sex);
         let (code, severity) = match category {
             LabCategory::DiabetesRange => (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical),
@@ -1822,6 +1910,21 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Se
                 test_words(l.test),
                 l.date,
                 category.label(),
+            ),
+        );
+    }
+    if !severe_bp.is_empty() {
+        let (sys, dia) = SEVERE_BP_MMHG;
+        output.push_flag(
+            OutcomesFlag::LabSevereBp.as_str(),
+            FlagSeverity::Clinical,
+            format!(
+                "The most recent blood pressure ({}) is above {sys}/{dia} mmHg, a level counted \
+                 as severe high blood pressure (ACC/AHA 2017). Please have it checked by a \
+                 licensed clinician soon, before changing how you eat or how active you are; \
+                 with chest pain, shortness of breath, a severe headache, or changes in vision \
+                 or speech, seek urgent care.",
+                severe_bp.join(" and ")
             ),
         );
     }

@@ -132,12 +132,16 @@ code_enum! {
         LabPrediabetesRange = "lab_prediabetes_range" => "Lab result in the prediabetes range",
         /// Latest fasting glucose below 70 mg/dL (3.9 mmol/L).
         LabLowGlucose = "lab_low_glucose" => "Fasting glucose below the normal range",
+        /// Latest blood pressure above 180 mmHg systolic or 120 mmHg diastolic.
+        LabSevereBp = "lab_severe_bp" => "Blood pressure above 180/120 mmHg",
         /// Glucose-lowering medication with fast loss or low intake.
         MedicationReview = "medication_review" => "Medication review",
         /// Gain faster than the fast-loss limit over the same span.
         FastGain = "fast_gain" => "Fast gain",
         /// The profile notes a pregnancy.
         Pregnancy = "pregnancy" => "Pregnancy noted in the profile",
+        /// The profile notes breastfeeding.
+        Breastfeeding = "breastfeeding" => "Breastfeeding noted in the profile",
         /// Intake below resting energy expenditure over the last four weeks, on the weight
         /// trend's evidence (alone, or agreeing with the food log).
         BelowRestingIntake = "below_resting_intake" => "Intake below resting energy for weeks",

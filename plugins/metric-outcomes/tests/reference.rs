@@ -1128,6 +1128,26 @@ fn pregnancy_in_the_profile_is_a_clinical_flag() {
     assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
 }
 
+/// Breastfeeding was an unknown profile flag ("it changes nothing in the reports"): a woman
+/// breastfeeding and losing 0.6 kg a week on a logged 1,300 kcal a day was told how much more
+/// would hold her weight by a model that does not count the energy that goes into milk (hand-
+/// made BREASTFEED, clinical28 helper). It raises a clinical flag, which holds every suggestion.
+#[test]
+fn breastfeeding_in_the_profile_is_a_clinical_flag() {
+    let mut p = steady_loser();
+    let c = |t| ctx(day(0), day(30), Some(t));
+    let steady = trend_output(30, 30, -0.875, |k| 100.0 - 0.125 * k as f64);
+    p.profile.flags = vec!["breastfeeding".into()];
+    let out = run(&c(steady), &p);
+    assert_eq!(codes(&out), vec!["breastfeeding"]);
+    assert_eq!(out.flags[0].severity, FlagSeverity::Clinical);
+    assert!(
+        out.flags[0]
+            .message
+            .contains("licensed clinician or midwife")
+    );
+}
+
 /// A trend that rises 1.4 kg a week (a 10 kg step in the weigh-ins reads like this) raises a
 /// clinical `fast_gain` flag; a rise of 0.5 kg a week does not.
 #[test]
@@ -1460,4 +1480,86 @@ fn an_hba1c_shown_in_mmol_per_mol_is_not_rounded_across_the_diabetes_cut_off() {
     // The % column itself: 6.499 prints 6.4, 6.5 prints 6.5.
     assert_eq!(lab_shown(LabTest::Hba1c, 6.499, "%", 1), 6.4);
     assert_eq!(lab_shown(LabTest::Hba1c, 6.5, "%", 1), 6.5);
+}
+
+/// Age 70 is reached on the 70th birthday, not the day before: the age was days / 365.2425,
+/// which is 70.00007 on the eve of the birthday of someone born 1958-03-30 (2028-03-29, a
+/// 70-year span with 18 leap days; so for about 47 % of birth dates), and the older adults'
+/// low-BMI cut-off (22) flagged a man at BMI 21.8 still losing, a day early. In whole
+/// completed years he is 69 that day (the general cut-off, 20: no flag) and 70 on the next.
+#[test]
+fn the_older_adults_cut_off_applies_from_the_70th_birthday_not_the_day_before() {
+    let h2 = 1.72 * 1.72;
+    let mut p = participant(Sex::Male, 172.0);
+    p.profile.birth_date = Some(d("1958-03-30"));
+    let (from, eve) = (366, 394);
+    assert_eq!(day(eve), d("2028-03-29"));
+    assert!(p.profile.age_on(day(eve)) >= 70.0);
+    assert_eq!(p.profile.whole_years_on(day(eve)), 69.0);
+    let end = 21.8 * h2;
+    let level = move |k: i64| end + 0.085 * (eve - k) as f64;
+    let falling = |last: i64| {
+        let out = trend_output(last, last, -0.6, level);
+        let mut t = TrendView::from_output(&out).unwrap();
+        t.status = Status::Losing;
+        t.to_output()
+    };
+    p.weights = (from..=eve + 1).map(|k| weigh(day(k), level(k))).collect();
+    let on_eve = run(&ctx(day(from), day(eve), Some(falling(eve))), &p);
+    assert!(on_eve.flags.is_empty(), "{:?}", codes(&on_eve));
+    let on_birthday = run(
+        &ctx(day(from + 1), day(eve + 1), Some(falling(eve + 1))),
+        &p,
+    );
+    assert_eq!(codes(&on_birthday), vec!["low_bmi"]);
+}
+
+/// A blood pressure of 182/121 mmHg was only "recorded": no flag, nothing for a clinician, and
+/// the report went on to suggest eating less or walking more. Above 180 systolic or 120
+/// diastolic is severe hypertension (ACC/AHA 2017, Whelton et al. 2018; from memory): one
+/// clinical flag names the reading; 180/120 itself, and a lower reading, raise none.
+#[test]
+fn a_blood_pressure_above_180_over_120_is_flagged_for_a_clinician() {
+    let mut p = steady_loser();
+    p.labs = vec![
+        lab(10, LabTest::SystolicBp, 182.0, "mmHg", 182.0),
+        lab(10, LabTest::DiastolicBp, 121.0, "mmHg", 121.0),
+    ];
+    let out = run(&ctx(day(0), day(40), None), &p);
+    let severe: Vec<_> = out
+        .flags
+        .iter()
+        .filter(|f| f.code == "lab_severe_bp")
+        .collect();
+    assert_eq!(severe.len(), 1, "{:?}", out.flags);
+    assert_eq!(severe[0].severity, FlagSeverity::Clinical);
+    assert!(
+        severe[0].message.starts_with(
+            "The most recent blood pressure (systolic 182 mmHg on 2027-03-11 and diastolic 121 mmHg on 2027-03-11) is above 180/120 mmHg"
+        ),
+        "{}",
+        severe[0].message
+    );
+    // Diastolic alone above the line.
+    p.labs = vec![
+        lab(10, LabTest::SystolicBp, 150.0, "mmHg", 150.0),
+        lab(10, LabTest::DiastolicBp, 125.0, "mmHg", 125.0),
+    ];
+    let out = run(&ctx(day(0), day(40), None), &p);
+    assert!(
+        out.flags.iter().any(|f| f.code == "lab_severe_bp"
+            && f.message.contains("(diastolic 125 mmHg on 2027-03-11)"))
+    );
+    // On the line, or an older high reading followed by a lower one: no flag.
+    p.labs = vec![
+        lab(5, LabTest::SystolicBp, 190.0, "mmHg", 190.0),
+        lab(10, LabTest::SystolicBp, 180.0, "mmHg", 180.0),
+        lab(10, LabTest::DiastolicBp, 120.0, "mmHg", 120.0),
+    ];
+    let out = run(&ctx(day(0), day(40), None), &p);
+    assert!(
+        out.flags.iter().all(|f| f.code != "lab_severe_bp"),
+        "{:?}",
+        out.flags
+    );
 }

@@ -1771,3 +1771,41 @@ fn the_net_activity_covers_the_implied_intake_s_window() {
     let activity = out.scalar("activity_net_kcal_per_day").unwrap();
     assert!(activity.abs() < 1e-9, "{activity}");
 }
+
+/// The energy balance (implied intake minus total expenditure, the energy the weight change
+/// stores) carried the implied intake's interval, shifted: the baseline requirement's
+/// uncertainty, which is in both figures and cancels, made a clear rise read as possibly a
+/// deficit (a hand-made participant rising 0.37 kg a week, 95 % 0.28 to 0.45: +347 kcal/d,
+/// 95 % −130 to +825). Its interval is that of ρ_tissue·s̄ (slope and energy density), and it
+/// holds the simulated truth.
+#[test]
+fn the_energy_balance_interval_is_that_of_the_energy_stored() {
+    let model = man_model();
+    let ei0 = model.ei0;
+    let surplus = 400.0;
+    let out = logged_record(&|_| ei0 + surplus);
+    let b = out.scalar_full("energy_balance_kcal_per_day").unwrap();
+    let i = out.scalar_full("implied_intake_kcal_per_day").unwrap();
+    let (bv, bl, bu) = (b.value.unwrap(), b.lower.unwrap(), b.upper.unwrap());
+    let half = |x: &cohortpress_metric_api::Scalar| (x.upper.unwrap() - x.lower.unwrap()) / 2.0;
+    // The true balance on the last day: intake minus the model's total expenditure (as in
+    // `compute_recovers_the_known_intake_and_continues_the_trajectory`).
+    let n = 168;
+    let states = model.simulate_from(model.baseline_state(), n - 1, |_| ei0 + surplus, |_| 0.0);
+    let st = states[n - 1];
+    let (df, _) = model.derivatives(&st, ei0 + surplus, 0.0);
+    let dl = df * crate::dynamics::FORBES_C / st.fat_kg;
+    let tee_true = model.expenditure(&st, ei0 + surplus, 0.0)
+        + crate::dynamics::ETA_F * df
+        + crate::dynamics::ETA_L * dl;
+    let truth = ei0 + surplus - tee_true;
+    assert!(bl < truth && truth < bu, "{truth} not in {b:?}");
+    // A clear rise is a surplus at both ends, and the interval is far narrower than the
+    // implied intake's (which carries the baseline requirement).
+    assert!(bl > 0.0, "{b:?}");
+    assert!(half(b) < 0.5 * half(i), "{b:?} vs {i:?}");
+    // Centred on the value, which is unchanged: implied intake minus total expenditure.
+    let tdee = out.scalar("tdee_kcal_per_day").unwrap();
+    assert!((bv - (i.value.unwrap() - tdee)).abs() < 1e-9);
+    assert!(((bl + bu) / 2.0 - bv).abs() < 1e-9);
+}
