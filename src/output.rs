@@ -745,6 +745,29 @@ fn resolve_output(dir: &Path, named_by: &str) -> Result<PathBuf, StagingError> {
             out.extend(missing.iter().rev());
             Ok(out)
         }
+        // A file where the path needs a folder (`--out notes.txt/reports`): the command line
+        // names a folder that cannot exist. It was "writing outputs failed: …: Not a directory
+        // (os error 20)", exit 6, as if the disk had failed, and `check` said nothing.
+        Err(e) if e.kind() == std::io::ErrorKind::NotADirectory => {
+            let file = dir
+                .ancestors()
+                .skip(1)
+                .find(|a| fs::metadata(a).is_ok_and(|m| !m.is_dir()));
+            Err(refuse(match file {
+                Some(f) => format!(
+                    "refusing to write the output to {} ({named_by}): {} is a file, not a \
+                     folder, so no folder can be made inside it; check the path, or name a \
+                     folder elsewhere",
+                    dir.display(),
+                    f.display()
+                ),
+                None => format!(
+                    "refusing to write the output to {} ({named_by}): a part of its path is a \
+                     file, not a folder ({e}); check the path, or name a folder elsewhere",
+                    dir.display()
+                ),
+            }))
+        }
         Err(e) => Err(io(dir)(e)),
     }
 }

@@ -1871,8 +1871,11 @@ fn read_records(
                         ctx.error(format!(
                             "the file has more than {MAX_CSV_ROWS} rows, the limit for one file; it was not read further and cannot be used"
                         ))
-                        .at(line_of(rec.position()), None)
+                        .at(line_of(rec.position()), Some(1))
                         .expected(format!("at most {MAX_CSV_ROWS} rows"))
+                        .found(format!(
+                            "row {records} starting here, and the file was not read past it"
+                        ))
                         .hint("check it is the right file; split a very long history into the reporting years"),
                     );
                     return None;
@@ -6181,6 +6184,15 @@ mod tests {
         assert_eq!(d.len(), 1, "{d:?}");
         assert_eq!(d[0].line, Some(MAX_CSV_ROWS as u64 + 2));
         assert!(d[0].message.contains("more than 50000 rows"), "{}", d[0]);
+        // Line, column, expected and found, as every input message gives them (a 50 MB
+        // weights.csv gave no column and no "found").
+        assert_eq!(d[0].column, Some(1), "{}", d[0]);
+        assert_eq!(
+            d[0].found.as_deref(),
+            Some("row 50001 starting here, and the file was not read past it"),
+            "{}",
+            d[0]
+        );
         // At the limit the file is read.
         let at_limit = &long[..long.len() - "2026-04-01,72,kg\n".len()];
         let (t, d) = read(at_limit, &opts);

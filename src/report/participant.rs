@@ -1545,6 +1545,9 @@ fn weight_chart_alt(
 /// the energy module's window).
 const RESTING_LABEL: &str = "Resting energy (estimated, at your current weight)";
 
+/// The same for someone who left before the period began: at the weight they last had.
+const RESTING_LABEL_LEFT: &str = "Resting energy (estimated, at your last weight)";
+
 /// The days the energy module's window covers, in words: `last 4 weeks`, `last 30 days`, or,
 /// for someone enrolled fewer than `window_days` days before the period's end (the module's
 /// window starts at enrolment then), `11 days since you enrolled`.
@@ -1731,6 +1734,11 @@ fn energy_section(
     let mut explanation = format!("{how_total}{rest}{implied_words}{balance}{ranges}");
     if let Some(left) = left_before {
         items.retain(|k| k.label == RESTING_LABEL || k.label == "Resting-energy equation");
+        // Their weight now is not known: the figure is at the last one, as the words below and
+        // "Where you stand" ("Weight at your last weigh-in") say.
+        for k in items.iter_mut().filter(|k| k.label == RESTING_LABEL) {
+            k.label = RESTING_LABEL_LEFT.into();
+        }
         explanation = format!(
             "You left the program on {}, before this period began, so this period's activity, energy use and intake are not shown: they would describe the days after you left. Resting energy is estimated from a published equation at your last weight; the table below shows your weeks up to the day you left.",
             fmt::date(left)
@@ -3104,14 +3112,17 @@ mod activity_unread_tests {
         e.energy_balance_kcal_per_day.value = None;
         let (v, _) = energy_section(&e, "last 4 weeks", None, false);
         assert!(!v.explanation.contains("The energy balance is"));
-        // Someone who left before the period: no figures for the days after they left.
+        // Someone who left before the period: no figures for the days after they left, and
+        // their resting energy is at their last weight, not a "current" one (sample program,
+        // September 2026, SG-018, left 27 July: "at your current weight" above "estimated ...
+        // at your last weight").
         let left = NaiveDate::from_ymd_opt(2026, 7, 27).unwrap();
         let (v, _) = energy_section(&e, "last 4 weeks", Some(left), false);
         let labels: Vec<&str> = v.items.iter().map(|k| k.label.as_str()).collect();
         assert_eq!(
             labels,
             [
-                "Resting energy (estimated, at your current weight)",
+                "Resting energy (estimated, at your last weight)",
                 "Resting-energy equation"
             ]
         );

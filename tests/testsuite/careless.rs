@@ -637,6 +637,42 @@ fn an_output_folder_that_is_a_mount_point_is_refused_before_anything_is_done() {
     assert!(inside.join("group/program.html").is_file());
 }
 
+/// `--out` through a file (`--out notes.txt/reports`, a file where the path needs a folder):
+/// `run` stopped with "writing outputs failed: …: Not a directory (os error 20)", exit 6, as a
+/// full disk does, and `check` with the same `--out` said nothing (exit 0). Both now refuse it
+/// as a wrong command line (exit 2), naming the file, and nothing is written.
+#[test]
+fn an_output_folder_under_a_file_is_refused_naming_the_file() {
+    let t = ProgramTest::fixture("report-small");
+    let file = t.dir.parent().unwrap().join("notes.txt");
+    fs::write(&file, "mine\n").unwrap();
+    let out = file.join("reports");
+    let out_s = out.to_str().unwrap();
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        out_s,
+    ]);
+    assert_eq!(o.code, 2, "{o:?}");
+    let named = format!("{} is a file, not a folder", file.display());
+    assert!(o.stderr.contains(&named), "{}", o.stderr);
+    assert!(!o.stderr.contains("os error"), "{}", o.stderr);
+    assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+    let c = t.run(&["check", "{dir}", "--as-of", AS_OF, "--out", out_s]);
+    assert_eq!(c.code, 2, "{c:?}");
+    assert!(c.stdout.contains(&named), "{c:?}");
+    assert_eq!(fs::read_to_string(&file).unwrap(), "mine\n");
+    assert!(
+        !t.dir.join("reports.ledger").exists(),
+        "no release recorded"
+    );
+}
+
 /// `~` that no shell expanded: `--out "~/reports"` quoted in a cron line, or `out: ~/reports`
 /// in program.yaml. The reports went into a folder named `~` in the working (or program)
 /// folder, with no word; a later `rm -r ~` to tidy it up is the user's home folder.

@@ -53,6 +53,35 @@ fn the_readme_says_how_to_get_the_cohortpress_command_before_using_it() {
     assert!(readme[..first_use].contains("target/release/cohortpress"));
 }
 
+/// README.md's first command "writes `sample-program/reports/`", and it also made
+/// `sample-program/reports.ledger/`, which the README did not name: a new user who tidies the
+/// sample by deleting `reports/` keeps a ledger that audits every later run. Every folder or
+/// visible file the README's sample run adds to the program folder is named in "Two commands".
+#[test]
+fn the_readme_names_what_its_sample_run_adds_to_the_program_folder() {
+    let t = crate::harness::ProgramTest::sample();
+    let names = |dir: &std::path::Path| -> std::collections::BTreeSet<String> {
+        std::fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .filter(|n| !n.starts_with('.'))
+            .collect()
+    };
+    let before = names(&t.dir);
+    let o = t.run(&["run", "{dir}", "--formats", "html"]);
+    assert_eq!(o.code, 4, "{o:?}");
+    let two = section("README.md", "## Two commands");
+    let added: Vec<String> = names(&t.dir).difference(&before).cloned().collect();
+    assert!(added.contains(&"reports".to_string()), "{added:?}");
+    for name in &added {
+        assert!(
+            two.contains(&format!("`sample-program/{name}/`"))
+                || two.contains(&format!("`sample-program/{name}`")),
+            "the sample run adds {name} to the program folder, and README.md's \"Two commands\" does not name it"
+        );
+    }
+}
+
 /// The guide listed none of the `trend` module's five settings, nor `energy`'s `walking_met`
 /// or `outcomes`' `fast_loss_span_days`: a program that wanted a longer plateau window had only
 /// `cohortpress modules` to learn the name from. Each setting is now a row of the guide's

@@ -583,7 +583,8 @@ fn hostile_files_are_refused_within_a_memory_ceiling_and_the_others_are_reported
         "aliases (`*name`) expand the file to more than 200000 values",
         "participants/SG-002/profile.yaml:",
         "lists and mappings are nested more than 32 levels deep",
-        "participants/SG-003/weights.csv:50002: the file has more than 50000 rows",
+        "participants/SG-003/weights.csv:50002:1: the file has more than 50000 rows",
+        "found: row 50001 starting here",
         "participants/SG-004/activity.csv:1: the header has 2000003 columns, more than the limit of 256",
         // The oversized CSV files cost those files only; the profiles cost the participants.
         "4 participants reported, 4 with errors",

@@ -1345,6 +1345,16 @@ fn forecast(
     }
 }
 
+/// A weight a flag names, in kilograms and pounds ("about 51 kg (112 lb)"), as the `outcomes`
+/// module's flags and the report's cautions write theirs: a flag's words are made here, without
+/// the program's units, and "51 kg" alone was printed in a program whose reports are in pounds.
+fn kg_lb(kg: f64, decimals: usize) -> String {
+    format!(
+        "{kg:.decimals$} kg ({:.decimals$} lb)",
+        cohortpress_metric_api::units::Mass::from_kg(kg).lb()
+    )
+}
+
 /// The flag for a forecast that heads below BMI 18.5 ([`Forecast::underweight`]): clinical when
 /// the path crosses within the horizon, or when the steady state lies below BMI 16 (WHO severe
 /// thinness: the implied intake is far below what the body needs at any healthy weight) for
@@ -1357,9 +1367,9 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
             "into severe thinness (a BMI below 16), where this model no longer applies,".into()
         } else if fc.now_kg - low < FALLS_FURTHER_KG {
             // Less than a kilogram: "to about 48 kg" from 48.3 read as no fall at all.
-            format!("to about {low:.1} kg")
+            format!("to about {}", kg_lb(low, 1))
         } else {
-            format!("to about {low:.0} kg")
+            format!("to about {}", kg_lb(low, 0))
         };
         out.push_flag(
             EnergyFlag::ForecastUnderweight.as_str(),
@@ -1423,8 +1433,9 @@ fn push_underweight_flag(out: &mut ModuleOutput, fc: &Forecast) {
         ),
         (None, Some(w)) => format!(
             "If eating goes on as over the last weeks for good, the model expects weight to \
-             settle in the end at about {w:.0} kg, a BMI below 18.5, the underweight range \
-             (WHO). {eased}"
+             settle in the end at about {}, a BMI below 18.5, the underweight range (WHO). \
+             {eased}",
+            kg_lb(w, 0)
         ),
         (None, None) => return,
     };

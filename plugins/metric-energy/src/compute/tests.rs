@@ -1103,6 +1103,25 @@ fn no_forecast_reaches_below_bmi_16() {
     assert!(end.value.unwrap() < 90.0 - 0.4 * n as f64 / 7.0);
 }
 
+/// The weight a forecast flag names after "about ", in kilograms and in pounds: "about 51 kg
+/// (112 lb)". Panics when either is missing.
+fn named_kg_and_lb(message: &str) -> (f64, f64) {
+    let rest = message
+        .split("about ")
+        .find(|r| r.contains(" kg ("))
+        .unwrap_or_else(|| panic!("no weight in kg and lb: {message}"));
+    let kg = rest.split(" kg (").next().and_then(|x| x.parse().ok());
+    let lb = rest
+        .split(" kg (")
+        .nth(1)
+        .and_then(|r| r.split(" lb)").next())
+        .and_then(|x| x.parse().ok());
+    match (kg, lb) {
+        (Some(kg), Some(lb)) => (kg, lb),
+        _ => panic!("no weight in kg and lb: {message}"),
+    }
+}
+
 /// A woman of healthy weight losing steadily: at the implied intake the forecast goes below BMI
 /// 18.5 before the program's end, or on into the range where it is withheld (BMI 16). Nothing
 /// said so: the forecast was drawn into underweight, or only left out.
@@ -1213,6 +1232,15 @@ fn a_forecast_into_underweight_is_flagged_for_a_clinician() {
                 "{start} kg, {per_week} kg/week: {severity:?} {message}"
             );
             kinds.push((severity, message.contains("settle in the end at about")));
+            // A weight the flag names is in pounds too: "settle in the end at about 51 kg" was
+            // printed alone in a program whose reports are in pounds.
+            if message.contains(" kg") {
+                let (kg, lb) = named_kg_and_lb(&message);
+                assert!(
+                    (kg * 2.204_622 - lb).abs() <= 0.5 + 2.204_622 * 0.5,
+                    "{start} kg: {message}"
+                );
+            }
             // Someone of healthy weight now (below BMI 25 at 1.65 m, 68 kg) has no loss target
             // to near; the notice said intake is raised "as weight nears its target".
             if severity == FlagSeverity::Notice && start < 68.0 {
@@ -1692,10 +1720,16 @@ fn an_underweight_weight_still_falling_is_flagged_whatever_the_forecast_s_length
     let to: f64 = message
         .split("to about ")
         .nth(1)
-        .and_then(|r| r.split(" kg around").next())
+        .and_then(|r| r.split(" kg (").next())
         .and_then(|x| x.parse().ok())
         .unwrap_or_else(|| panic!("{message}"));
     assert!((to - end).abs() <= 0.051 && to < now, "{message}");
+    let (kg, lb) = named_kg_and_lb(&message);
+    assert_eq!(kg, to, "{message}");
+    assert!(
+        (kg * 2.204_622 - lb).abs() <= 0.06 + 0.05 * 2.204_622,
+        "{message}"
+    );
     // The same weight held steady raises nothing; nor does a fall the trend cannot tell from
     // none (0.02 kg a week, its interval ±0.035 kg a week).
     assert_eq!(run_with(48.0, 0.0, 0.005).2, None);
