@@ -597,7 +597,7 @@ struct EndToEnd {
 /// Runs the binary on `program` into a fresh `out`, polling its peak resident set.
 fn end_to_end(binary: &Path, program: &Path, out: &Path, jobs: usize) -> EndToEnd {
     let _ = std::fs::remove_dir_all(out);
-    // A fresh ledger of its own for every run (`--state`), so each run is a first release
+    // A fresh ledger of its own for every run (`--state`, `--new-ledger`), so each run is a first release
     // whatever ran before: without it, every run would add a release to the program's own
     // ledger (`reports.ledger` in the generated program) and be audited against the last.
     let state = out.with_extension("ledger");
@@ -620,6 +620,9 @@ fn end_to_end(binary: &Path, program: &Path, out: &Path, jobs: usize) -> EndToEn
         .arg(out)
         .arg("--state")
         .arg(&state)
+        // Meant: the output folders of earlier bench runs beside it record this program in
+        // ledgers of their own, which a fresh ledger would otherwise be refused beside.
+        .arg("--new-ledger")
         .stdin(Stdio::null())
         .stdout(Stdio::null())
         .stderr(log_file)

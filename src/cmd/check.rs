@@ -673,7 +673,15 @@ fn ledger_problems(
     let (dir, source) = crate::group::ledger::resolve_dir(state, prog, &out_dir, true)?;
     let problem = crate::group::ledger::Ledger::folder_problem_of(&dir, source);
     Ok(match problem {
-        Ok(()) => Vec::new(),
+        // A ledger that does not record the program's earlier group reports: `run` refuses
+        // it without --new-ledger (a warning here: that option is the user's to give).
+        Ok(()) => crate::run::plan::lost_ledger(&dir, state.is_some(), prog, &out_dir)
+            .map(|why| {
+                Diagnostic::warning(dir.display().to_string(), format!("group-report ledger: {why}"))
+                    .hint("`run` refuses this with exit code 2 before computing anything, unless given --new-ledger")
+            })
+            .into_iter()
+            .collect(),
         Err(p) => vec![
             Diagnostic::error(
                 p.path.display().to_string(),

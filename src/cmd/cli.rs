@@ -200,6 +200,12 @@ pub struct RunArgs {
     /// reached through a link is judged where it is.
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
+    /// Start the group-report audit again from nothing although this program's earlier group
+    /// reports are known (the output folder holds one its ledger does not record, or `--state`
+    /// names a new ledger while another records the program): without it such a run is
+    /// refused, since the new report would not be audited against the ones the sponsor has.
+    #[arg(long)]
+    pub new_ledger: bool,
 }
 
 /// Arguments of `merge`.
@@ -228,6 +234,10 @@ pub struct MergeArgs {
     /// option wins over `report.state_dir`).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
+    /// Start the group-report audit again from nothing although this program's earlier group
+    /// reports are known (as for `run`).
+    #[arg(long)]
+    pub new_ledger: bool,
 }
 
 fn exit_codes_help() -> String {

@@ -33,6 +33,7 @@ pub fn run_options(args: &RunArgs) -> RunOptions {
         shard: args.shard,
         group_readable: args.group_readable,
         state: args.state.clone(),
+        new_ledger: args.new_ledger,
     }
 }
 
@@ -44,6 +45,7 @@ pub fn merge_options(args: &MergeArgs) -> MergeOptions {
         out: args.out.clone(),
         group_readable: args.group_readable,
         state: args.state.clone(),
+        new_ledger: args.new_ledger,
     }
 }
 

@@ -372,12 +372,18 @@ pub fn ledgers_beside(dir: &Path, program: &str) -> Vec<PathBuf> {
     let (Some(parent), Some(own)) = (dir.parent(), dir.file_name()) else {
         return Vec::new();
     };
-    let Ok(entries) = std::fs::read_dir(parent) else {
+    ledgers_in(parent, Some(own), program)
+}
+
+/// The `*.ledger` folders in `folder` (but `except`) whose `ledger.json` records a release of
+/// `program`, read as [`ledgers_beside`] reads them.
+pub fn ledgers_in(folder: &Path, except: Option<&std::ffi::OsStr>, program: &str) -> Vec<PathBuf> {
+    let Ok(entries) = std::fs::read_dir(folder) else {
         return Vec::new();
     };
     let mut found: Vec<PathBuf> = entries
         .flatten()
-        .filter(|e| e.file_name() != own)
+        .filter(|e| Some(e.file_name().as_os_str()) != except)
         .filter(|e| e.file_name().to_string_lossy().ends_with(".ledger"))
         .filter(|e| e.file_type().is_ok_and(|t| t.is_dir()))
         .map(|e| e.path())
@@ -392,6 +398,26 @@ pub fn ledgers_beside(dir: &Path, program: &str) -> Vec<PathBuf> {
         .collect();
     found.sort();
     found
+}
+
+/// The releases `dir`'s `ledger.json` records, as (program, first day, last day), read as
+/// [`ledgers_beside`] reads it: nothing locked or created, never through a link. `Some(empty)`
+/// when the folder holds no `ledger.json` (a new ledger); `None` when one is there but does not
+/// read (the run refuses that folder in its own words: [`Ledger::check_folder`]).
+pub fn recorded_releases(dir: &Path) -> Option<Vec<(String, String, String)>> {
+    let file = dir.join(LEDGER_FILE);
+    if std::fs::symlink_metadata(&file).is_err() {
+        return Some(Vec::new());
+    }
+    let f = crate::limits::read_limited(&file, LEDGER_LIMIT)
+        .ok()
+        .and_then(|b| parse_ledger_why(&b).ok())?;
+    Some(
+        f.releases
+            .into_iter()
+            .map(|r| (r.program, r.period_from, r.period_to))
+            .collect(),
+    )
 }
 
 impl Ledger {

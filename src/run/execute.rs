@@ -473,7 +473,16 @@ pub fn check_ledger_folder(plan: &RunPlan) -> Result<(), RunError> {
         return Ok(());
     }
     group::ledger::Ledger::check_folder(&plan.state_dir, plan.state_source)
-        .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))
+        .map_err(|e| RunError::Output(format!("group-report ledger: {e}")))?;
+    // A usable ledger that does not record the program's earlier group reports, without
+    // --new-ledger: a wrong command line (exit 2), refused before anything is computed.
+    match &plan.lost_ledger {
+        Some(why) => Err(RunError::Invalid {
+            by: super::Blame::CommandLine,
+            diagnostics: vec![Diagnostic::error("command line", why.clone())],
+        }),
+        None => Ok(()),
+    }
 }
 
 /// The group step, group reports, tidy metrics and manifest from every participant's record
@@ -515,7 +524,10 @@ pub fn finish(
         // again from nothing while the sponsor keeps the earlier reports.
         let earlier_group_report =
             plan.out_dir.join("group").is_dir() && plan.out_dir.join("manifest.json").is_file();
-        if ledger.is_new() && earlier_group_report && plan.out_named_by != "--out" {
+        // (Without --new-ledger the plan refused it: `plan::lost_ledger`.)
+        let named_out_and_state =
+            plan.out_named_by == "--out" && plan.state_source == group::ledger::StateSource::Named;
+        if ledger.is_new() && earlier_group_report && !named_out_and_state {
             tracing::warn!(
                 "group-report ledger {}: a new ledger, but {} holds a group report of an \
                  earlier run, which this one is not audited against; if its ledger was moved, \
@@ -749,7 +761,7 @@ pub fn finish(
 
 /// The period (`period_from`, `period_to`) of the complete output of program `program_id` in
 /// `out_dir` when it holds a group report, from its `manifest.json` (read like an input).
-fn published_period(out_dir: &Path, program_id: &str) -> Option<(String, String)> {
+pub(crate) fn published_period(out_dir: &Path, program_id: &str) -> Option<(String, String)> {
     if !out_dir.join("group").is_dir() {
         return None;
     }

@@ -43,6 +43,9 @@ pub struct RunOptions {
     pub group_readable: bool,
     /// State folder of the group-report ledger.
     pub state: Option<PathBuf>,
+    /// Start the audit again from nothing although earlier group reports are known
+    /// ([`lost_ledger`]).
+    pub new_ledger: bool,
 }
 
 /// How `merge` was asked to run.
@@ -58,6 +61,9 @@ pub struct MergeOptions {
     pub group_readable: bool,
     /// State folder of the group-report ledger.
     pub state: Option<PathBuf>,
+    /// Start the audit again from nothing although earlier group reports are known
+    /// ([`lost_ledger`]).
+    pub new_ledger: bool,
 }
 
 /// Everything a run needs, resolved from the command line and `program.yaml`.
@@ -96,6 +102,10 @@ pub struct RunPlan {
     pub state_dir: PathBuf,
     /// Where `state_dir` was found (named, an existing ledger, or the program's new one).
     pub state_source: group::ledger::StateSource,
+    /// Why the run is refused (a usage error) once its ledger folder is found usable: the
+    /// ledger does not record the program's earlier group reports and `--new-ledger` was not
+    /// given ([`lost_ledger`]).
+    pub lost_ledger: Option<String>,
 }
 
 impl RunPlan {
@@ -301,6 +311,82 @@ fn load_checked(root: &Path) -> Result<(Program, ModuleSet), PlanError> {
     Ok((program, modules))
 }
 
+/// Why the group report of a run with ledger `state_dir` would start the audit across releases
+/// again from nothing while this program's earlier group reports are known to exist, or `None`:
+/// - the output folder holds a group report of this program (its manifest says so) for a
+///   period the ledger does not record — the ledger was deleted, emptied, restored from an
+///   older backup, or another one is named (`--state`, `report.state_dir`);
+/// - the ledger records no release of this program while another does: the program's own
+///   beside `report.out`, the output folder's, one beside it, `report.state_dir` when
+///   `--state` is given, or a `*.ledger` folder in the program folder (`report.out` moved to
+///   another parent folder made a new "own" ledger there, silently).
+///
+/// The ledger alone knows who each printed figure counted, so the tool cannot audit the new
+/// report against a release it does not record; printed anyway, the new report subtracted
+/// from the sponsor's copy of the earlier one gave a small group's figures (an 80-person demo
+/// re-issued for September into the same `--out` after the ledger was deleted and one person
+/// left printed "reached 3 % loss" 57 → 56 and "reached 5 %" 31 → 31, with no warning: that
+/// person lost between 3 and 5 %). A first run (nothing of the program's anywhere) is not
+/// concerned, and `--new-ledger` says the restart is meant.
+pub fn lost_ledger(
+    state_dir: &Path,
+    state_given: bool,
+    program: &Program,
+    out_dir: &Path,
+) -> Option<String> {
+    use group::ledger::{default_dir, ledgers_beside, ledgers_in, recorded_releases};
+    let id = program.info.id.as_str();
+    let recorded = recorded_releases(state_dir)?;
+    if let Some((from, to)) = super::execute::published_period(out_dir, id)
+        && !recorded
+            .iter()
+            .any(|(p, f, t)| p == id && *f == from && *t == to)
+    {
+        return Some(format!(
+            "the output folder {} holds a group report of this program for {from} to {to}, which \
+             the group-report ledger {} does not record{}, so this report could not be audited \
+             against it and a difference of the two could give away a small group's figures; \
+             name the ledger that recorded it with --state (or report.state_dir), or give \
+             --new-ledger to start the audit again from nothing (the sponsor keeps that report)",
+            out_dir.display(),
+            state_dir.display(),
+            if recorded.is_empty() {
+                " (it records no release: deleted, moved or new)"
+            } else {
+                " (an older or another copy?)"
+            }
+        ));
+    }
+    if recorded.iter().any(|(p, _, _)| p == id) {
+        return None;
+    }
+    let cwd = std::env::current_dir().unwrap_or_default();
+    let root = cwd.join(&program.root);
+    let own = default_dir(out_dir);
+    let mut others = vec![
+        default_dir(&root.join(&program.def.report.out)),
+        own.clone(),
+    ];
+    if let (true, Some(d)) = (state_given, &program.def.report.state_dir) {
+        others.push(root.join(d));
+    }
+    others.extend(ledgers_beside(&cwd.join(&own), id));
+    // The program folder's own ledgers: `report.out` moved to another parent folder gave the
+    // program a new "own" ledger there, silently, beside the one that recorded every release.
+    others.extend(ledgers_in(&root, None, id));
+    let records_it =
+        |d: &Path| recorded_releases(d).is_some_and(|r| r.iter().any(|(p, _, _)| p == id));
+    let other = others.iter().find(|d| records_it(d))?;
+    Some(format!(
+        "the group-report ledger {} records no group report of this program, while {} records \
+         its earlier ones, so this report would not be audited against them and a difference \
+         of two reports could give away a small group's figures; name that ledger with --state \
+         (or report.state_dir), or give --new-ledger to start the audit again from nothing",
+        state_dir.display(),
+        other.display()
+    ))
+}
+
 /// Resolves the plan: loads and checks the program and its modules, the period and the output
 /// folder.
 pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
@@ -347,6 +433,9 @@ pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
     let (state_dir, state_source) =
         group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir, group_report)
             .map_err(usage)?;
+    let lost_ledger = (group_report && !args.new_ledger)
+        .then(|| lost_ledger(&state_dir, args.state.is_some(), &program, &out_dir))
+        .flatten();
     Ok(RunPlan {
         program,
         modules,
@@ -364,6 +453,7 @@ pub fn plan(args: &RunOptions, today: NaiveDate) -> Result<RunPlan, PlanError> {
         key,
         state_dir,
         state_source,
+        lost_ledger,
     })
 }
 
@@ -406,6 +496,9 @@ pub fn plan_for_merge(
     let (state_dir, state_source) =
         group::ledger::resolve_dir(args.state.as_deref(), &program, &out_dir, only.is_empty())
             .map_err(usage)?;
+    let lost_ledger = (only.is_empty() && !args.new_ledger)
+        .then(|| lost_ledger(&state_dir, args.state.is_some(), &program, &out_dir))
+        .flatten();
     Ok(RunPlan {
         program,
         modules,
@@ -423,6 +516,7 @@ pub fn plan_for_merge(
         key,
         state_dir,
         state_source,
+        lost_ledger,
     })
 }
 

@@ -26,7 +26,8 @@ fn group_ledger_goes_where_report_state_dir_says_and_state_wins() {
         !t.dir.join("reports.ledger").exists(),
         "no ledger at the default place"
     );
-    // `--state` on the command line wins over the key.
+    // `--state` on the command line wins over the key (a new ledger beside the report the
+    // key's ledger recorded, so it is meant: `--new-ledger`).
     let o = t.run(&[
         "run",
         "{dir}",
@@ -36,6 +37,7 @@ fn group_ledger_goes_where_report_state_dir_says_and_state_wins() {
         "html",
         "--state",
         "elsewhere",
+        "--new-ledger",
     ]);
     assert_eq!(o.code, 0, "{o:?}");
     assert!(t.dir.join("elsewhere/ledger.json").is_file());
@@ -1001,16 +1003,50 @@ fn a_ledger_json_beside_that_is_a_link_or_a_fifo_is_passed_over_not_followed_or_
     );
 }
 
+/// The ledger deleted (cleaned away as clutter) while the output folder keeps the group report
+/// it recorded: the next run was audited against nothing, and with `--out` naming that folder
+/// it said nothing at all. The 80-person demo re-issued for September into the same `--out`
+/// after one person left printed "reached 3 % loss" 57 → 56, "reached 5 %" 31 → 31 and "on a
+/// plateau" 39 → 38 beside the sponsor's first issue: that person lost between 3 and 5 % and is
+/// on a plateau (with the ledger kept, those counts are ranges). Now such a run is refused
+/// before anything is computed, unless `--new-ledger` says the restart is meant.
 #[test]
-fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
+fn a_new_ledger_beside_an_earlier_group_report_is_refused_unless_meant() {
     let t = ProgramTest::fixture("report-small");
-    let run = |as_of: &str| t.run(&["run", "{dir}", "--as-of", as_of, "--formats", "html"]);
-    let o = run(AS_OF);
+    let run = |extra: &[&str]| {
+        let mut args = vec!["run", "{dir}", "--as-of", AS_OF, "--formats", "html"];
+        args.extend_from_slice(extra);
+        t.run(&args)
+    };
+    let o = run(&[]);
     assert_eq!(o.code, 0);
     assert!(!o.stderr.contains("a new ledger"), "{}", o.stderr);
-    // The ledger folder cleaned away as clutter: the next run audited against nothing, silently.
     std::fs::remove_dir_all(t.dir.join("reports.ledger")).unwrap();
-    let o = run("2026-12-02");
+    let before = tree_hashes(&t.dir.join("reports"));
+    let out = t.dir.join("reports").to_string_lossy().into_owned();
+    for extra in [&[][..], &["--out", out.as_str()][..]] {
+        let o = run(extra);
+        assert_eq!(o.code, cohortpress::exit_code::USAGE, "{extra:?}: {o:?}");
+        assert!(
+            o.stderr
+                .contains("holds a group report of this program for ")
+                && o.stderr
+                    .contains("it records no release: deleted, moved or new")
+                && o.stderr.contains("--new-ledger"),
+            "{}",
+            o.stderr
+        );
+        // Refused before the participants: the line that starts them is not logged.
+        assert!(!o.stderr.contains("participants, period"), "{}", o.stderr);
+        assert!(!t.dir.join("reports.ledger").exists(), "no ledger made");
+        assert_eq!(tree_hashes(&t.dir.join("reports")), before);
+    }
+    let c = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert!(
+        c.stdout.contains("unless given --new-ledger"),
+        "check says it too: {c:?}"
+    );
+    let o = run(&["--new-ledger"]);
     assert_eq!(o.code, 0, "{o:?}");
     assert!(
         o.stderr.contains("a new ledger, but")
@@ -1018,13 +1054,102 @@ fn a_new_ledger_beside_an_earlier_group_report_is_warned_about() {
         "{}",
         o.stderr
     );
+    // Recorded now: the next run needs nothing.
+    assert_eq!(run(&[]).code, 0);
+}
+
+/// `--state` naming a new ledger while the program's own records its group reports: the run
+/// into a new output folder was audited against nothing, with a warning only.
+#[test]
+fn a_new_ledger_named_while_another_records_the_program_is_refused_unless_meant() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |extra: &[&str]| {
+        let mut args = vec!["run", "{dir}", "--as-of", AS_OF, "--formats", "html"];
+        args.extend_from_slice(extra);
+        t.run(&args)
+    };
+    assert_eq!(run(&[]).code, 0);
+    let fresh = t.dir.parent().unwrap().join("fresh");
+    let (fresh_s, out) = (
+        fresh.to_string_lossy().into_owned(),
+        t.dir
+            .parent()
+            .unwrap()
+            .join("elsewhere")
+            .to_string_lossy()
+            .into_owned(),
+    );
+    let o = run(&["--state", &fresh_s, "--out", &out]);
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(
+        o.stderr.contains(&format!(
+            "{}: records its earlier ones",
+            t.dir.join("reports.ledger").display()
+        )) || o.stderr.contains(&format!(
+            "while {} records its earlier ones",
+            t.dir.join("reports.ledger").display()
+        )),
+        "{}",
+        o.stderr
+    );
+    assert!(!fresh.exists() && !std::path::Path::new(&out).exists());
+    // The program's own ledger named: used as every run uses it.
+    let own = t.dir.join("reports.ledger").to_string_lossy().into_owned();
+    assert_eq!(run(&["--state", &own, "--out", &out]).code, 0);
+    let o = run(&["--state", &fresh_s, "--out", &out, "--new-ledger"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(o.stderr.contains("a new ledger"), "{}", o.stderr);
+}
+
+/// `report.out` moved to a folder of another parent between months: the program's "own" ledger
+/// is beside `report.out`, so the run made a new one there (an INFO line) and audited the
+/// report against nothing, while `reports.ledger` in the program folder recorded every
+/// earlier release (the 80-person demo, one person gone: "reached 3 % loss" 57 → 56).
+#[test]
+fn a_new_own_ledger_after_report_out_moved_is_refused_unless_meant() {
+    let t = ProgramTest::fixture("report-small");
+    let run = |extra: &[&str]| {
+        let mut args = vec!["run", "{dir}", "--as-of", AS_OF, "--formats", "html"];
+        args.extend_from_slice(extra);
+        t.run(&args)
+    };
+    assert_eq!(run(&[]).code, 0);
+    let moved = t.dir.parent().unwrap().join("srv").join("reports");
+    let path = t.dir.join("program.yaml");
+    let yaml = std::fs::read_to_string(&path).unwrap();
+    let out_line = yaml
+        .lines()
+        .find(|l| l.trim_start().starts_with("out:"))
+        .map(str::to_string);
+    let yaml = match out_line {
+        Some(l) => yaml.replace(&l, &format!("  out: {}", moved.display())),
+        None => yaml.replace(
+            "report:\n",
+            &format!("report:\n  out: {}\n", moved.display()),
+        ),
+    };
+    std::fs::write(&path, yaml).unwrap();
+    let o = run(&[]);
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(
+        o.stderr.contains(&format!(
+            "while {} records its earlier ones",
+            t.dir.join("reports.ledger").display()
+        )),
+        "{}",
+        o.stderr
+    );
+    assert!(!moved.exists() && !moved.with_extension("ledger").exists());
+    let o = run(&["--new-ledger"]);
+    assert_eq!(o.code, 0, "{o:?}");
+    assert!(moved.with_extension("ledger").join("ledger.json").is_file());
 }
 
 /// The ledger restored from an older backup than the output folder (or another copy of it):
 /// the group report in the output folder is not recorded in it, so the next report was not
 /// audited against it, with no word.
 #[test]
-fn a_ledger_that_does_not_record_the_outputs_group_report_is_warned_about() {
+fn a_ledger_that_does_not_record_the_outputs_group_report_is_refused_unless_meant() {
     let t = ProgramTest::fixture("report-small");
     let run = |period: &str| {
         t.run(&[
@@ -1046,9 +1171,27 @@ fn a_ledger_that_does_not_record_the_outputs_group_report_is_warned_about() {
     let o = run("2026-08");
     assert_eq!(o.code, 0, "{o:?}");
     assert!(!o.stderr.contains(says), "{}", o.stderr);
-    // The September-only copy comes back; the output holds August's group report.
+    // The September-only copy comes back; the output holds August's group report. Refused
+    // (exit 2), unless --new-ledger says it is meant; then said as a warning.
     std::fs::write(&ledger, &backup).unwrap();
     let o = run("2026-09");
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
+    assert!(
+        o.stderr.contains("(an older or another copy?)"),
+        "{}",
+        o.stderr
+    );
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--period",
+        "2026-09",
+        "--new-ledger",
+    ]);
     assert_eq!(o.code, 0, "{o:?}");
     assert!(
         o.stderr
@@ -1066,6 +1209,7 @@ fn a_ledger_that_does_not_record_the_outputs_group_report_is_warned_about() {
     v["releases"] = serde_json::json!([]);
     std::fs::write(&ledger, v.to_string()).unwrap();
     let o = run("2026-09");
+    assert_eq!(o.code, cohortpress::exit_code::USAGE, "{o:?}");
     assert!(
         o.stderr
             .contains("holds a group report of this program for 2026-09-01 to 2026-09-30"),
@@ -1719,11 +1863,15 @@ fn stray_ledgers_beside_never_outrank_the_programs_own_or_the_output_folders() {
     // Without the program's own: the output folder's own, not stopped by `old.ledger` beside it.
     let kept = t.dir.parent().unwrap().join("kept.ledger");
     std::fs::rename(t.dir.join("reports.ledger"), &kept).unwrap();
+    // (The preview's July report, which the ledger moved away recorded, cleared first: beside
+    // it a ledger that does not record it is refused.)
+    std::fs::remove_dir_all(t.dir.join("preview")).unwrap();
     let o = run(Some("2026-06"), Some("{dir}/preview"));
     assert_eq!(o.code, 0, "{o:?}");
     assert_eq!((releases("preview.ledger"), releases("old.ledger")), (2, 1));
     // Without either: the one beside, said in the log.
     std::fs::remove_dir_all(t.dir.join("preview.ledger")).unwrap();
+    std::fs::remove_dir_all(t.dir.join("preview")).unwrap();
     let o = run(Some("2026-05"), Some("{dir}/preview"));
     assert_eq!(o.code, 0, "{o:?}");
     assert_eq!(releases("old.ledger"), 2);

@@ -335,13 +335,20 @@ fn outputs_are_owner_only_unless_group_readable() {
     assert_eq!(mode(&Path::new(&o).join("manifest.json")), 0o600);
     // The group-report ledger's folder too (it was 0755 from the umask): it holds the exact
     // counts behind every published figure.
+    // (A new ledger beside the program's own, which records this program: meant here.)
     let st = t.dir.join("state-private");
     let o2 = out(&t, "private2");
     assert_eq!(
         run(
             &t,
             &o2,
-            &["--formats", "html", "--state", st.to_str().unwrap()]
+            &[
+                "--formats",
+                "html",
+                "--state",
+                st.to_str().unwrap(),
+                "--new-ledger"
+            ]
         )
         .code,
         0
