@@ -103,6 +103,8 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
             by: super::Blame::Program,
             diagnostics: vec![d],
         })?;
+    // The output folder first: a path through a file names the file, not the ledger beside it.
+    plan.check_output()?;
     if plan.shard.is_none() {
         check_ledger_folder(plan)?;
     }
