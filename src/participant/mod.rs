@@ -610,7 +610,18 @@ fn read_input(
             } else {
                 "this file is left out until it can be read; the participant is reported without it, and other participants are not affected"
             };
-            diags.push(ctx.error(format!("cannot read the file ({e})")).hint(hint));
+            // A link or a folder where the file should be: what was expected and found, as
+            // other messages give them ("cannot read the file (it is a folder, not a regular
+            // file; nothing was read from it (put the file itself here))" gave neither).
+            let d = match crate::limits::NotAFile::of(&e) {
+                Some(n) => ctx
+                    .error(format!("cannot read the file: {}", n.sentence()))
+                    .expected("a regular file")
+                    .found(n.found)
+                    .hint(format!("{}; {hint}", crate::limits::NotAFile::HINT)),
+                None => ctx.error(format!("cannot read the file ({e})")).hint(hint),
+            };
+            diags.push(d);
             return Some(Err(()));
         }
     };
