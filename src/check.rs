@@ -72,9 +72,19 @@ impl CheckReport {
         diag::count(&all)
     }
 
-    /// The one-line summary printed last.
+    /// Participant folders refused as a whole while listing `participants/` (a link, a name
+    /// that is no id): not usable, as a run leaves them out ([`participant::is_refused_folder`]).
+    pub fn refused_folders(&self) -> usize {
+        self.discovery
+            .iter()
+            .filter(|d| participant::is_refused_folder(d))
+            .count()
+    }
+
+    /// The one-line summary printed last. The folders refused while listing `participants/`
+    /// are counted among the participants not usable, as a run counts them left out.
     pub fn summary(&self) -> String {
-        let n = self.participants.len();
+        let n = self.participants.len() + self.refused_folders();
         let usable = self.usable();
         let (e, w) = self.counts();
         format!(

@@ -128,18 +128,14 @@ pub fn open_input(path: &Path) -> std::io::Result<std::fs::File> {
         checked_file(fd.map_err(|e| {
             described(e, || {
                 let t = std::fs::symlink_metadata(path).ok()?.file_type();
-                if t.is_symlink() {
-                    Some(LINK_MESSAGE.to_string())
-                } else {
-                    (!t.is_file()).then(|| not_a_file_message(&t))
-                }
+                (!t.is_file()).then(|| NotAFile::of_type(&t))
             })
         }))
     }
     #[cfg(not(unix))]
     {
         if is_link(path) {
-            return Err(std::io::Error::other(LINK_MESSAGE));
+            return Err(NotAFile::LINK.into());
         }
         checked_file(std::fs::File::open(path))
     }
@@ -222,7 +218,7 @@ pub fn open_dir(path: &Path) -> std::io::Result<InputDir> {
     #[cfg(not(unix))]
     {
         if is_link(path) || !path.is_dir() {
-            return Err(std::io::Error::other(LINK_MESSAGE));
+            return Err(NotAFile::LINK.into());
         }
         Ok(InputDir {
             path: path.to_path_buf(),
@@ -242,15 +238,16 @@ pub fn read_input_in(dir: &InputDir, name: &str) -> std::io::Result<Vec<u8>> {
                 use rustix::fs::FileType as T;
                 let st = rustix::fs::statat(&dir.fd, name, rustix::fs::AtFlags::SYMLINK_NOFOLLOW)
                     .ok()?;
-                match T::from_raw_mode(st.st_mode) {
-                    T::Symlink => Some(LINK_MESSAGE.to_string()),
-                    T::RegularFile => None,
-                    T::Fifo => Some(not_a_file("a FIFO (named pipe)")),
-                    T::CharacterDevice | T::BlockDevice => Some(not_a_file("a device")),
-                    T::Socket => Some(not_a_file("a socket")),
-                    T::Directory => Some(not_a_file("a folder")),
-                    T::Unknown => Some(not_a_file("a special file")),
-                }
+                let found = match T::from_raw_mode(st.st_mode) {
+                    T::Symlink => return Some(NotAFile::LINK),
+                    T::RegularFile => return None,
+                    T::Fifo => "a FIFO (named pipe)",
+                    T::CharacterDevice | T::BlockDevice => "a device",
+                    T::Socket => "a socket",
+                    T::Directory => "a folder",
+                    T::Unknown => "a special file",
+                };
+                Some(NotAFile { found, link: false })
             })
         }))?
     };
@@ -296,14 +293,14 @@ fn input_flags() -> rustix::fs::OFlags {
 /// of error is kept).
 #[cfg(unix)]
 fn link_or(e: rustix::io::Errno, is_link: impl FnOnce() -> bool) -> std::io::Error {
-    described(e, || is_link().then(|| LINK_MESSAGE.to_string()))
+    described(e, || is_link().then_some(NotAFile::LINK))
 }
 
 /// An open error in the words `what` gives for the entry that could not be opened (a link: `O_NOFOLLOW` fails
 /// with `ELOOP`; a socket: opening one fails with `ENXIO`, "No such device or address", which
 /// told a reader nothing); the kind of error is kept.
 #[cfg(unix)]
-fn described(e: rustix::io::Errno, what: impl FnOnce() -> Option<String>) -> std::io::Error {
+fn described(e: rustix::io::Errno, what: impl FnOnce() -> Option<NotAFile>) -> std::io::Error {
     let e = std::io::Error::from(e);
     if e.kind() == std::io::ErrorKind::NotFound {
         return e;
@@ -325,26 +322,90 @@ fn checked_file<F: Into<std::fs::File>>(
     let f: std::fs::File = opened?.into();
     let meta = f.metadata()?;
     if !meta.is_file() {
-        return Err(std::io::Error::new(
-            std::io::ErrorKind::InvalidInput,
-            not_a_file_message(&meta.file_type()),
-        ));
+        return Err(NotAFile::of_type(&meta.file_type()).into());
     }
     Ok(f)
 }
 
-/// Why a link is not read.
-pub const LINK_MESSAGE: &str = "it is a symbolic link, and links are not followed (they could \
-    point at another participant's data or at a system file); put the file itself here";
-
-/// Why something that is not a regular file is not read.
-pub fn not_a_file_message(t: &std::fs::FileType) -> String {
-    not_a_file(kind_of(t))
+/// An input refused for what it is: a symbolic link, or something else that is not a regular
+/// file (a folder, a FIFO, a device, a socket). The payload of the `io::Error` the input
+/// readers give ([`NotAFile::of`] finds it), so that a message can say what was expected and
+/// what was found: "cannot read the file (it is a folder, not a regular file; nothing was read
+/// from it (put the file itself here))" had neither, in parentheses within parentheses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct NotAFile {
+    /// What was found: "a folder", "a FIFO (named pipe)", "a symbolic link".
+    pub found: &'static str,
+    /// Whether it is a link (refused for where it could lead, not for what it is).
+    pub link: bool,
 }
 
-/// [`not_a_file_message`] for an entry of kind `kind` ("a socket").
-fn not_a_file(kind: &str) -> String {
-    format!("it is {kind}, not a regular file; nothing was read from it (put the file itself here)")
+impl NotAFile {
+    /// A symbolic link.
+    pub const LINK: NotAFile = NotAFile {
+        found: "a symbolic link",
+        link: true,
+    };
+
+    /// The entry of type `t`, which is not a regular file.
+    pub fn of_type(t: &std::fs::FileType) -> NotAFile {
+        if t.is_symlink() {
+            NotAFile::LINK
+        } else {
+            NotAFile {
+                found: kind_of(t),
+                link: false,
+            }
+        }
+    }
+
+    /// The refusal an input reader's error carries, if it is one.
+    pub fn of(e: &std::io::Error) -> Option<NotAFile> {
+        e.get_ref()?.downcast_ref::<NotAFile>().copied()
+    }
+
+    /// What it is and that nothing was read, without what to do: "it is a folder, not a
+    /// regular file; nothing was read from it".
+    pub fn sentence(&self) -> String {
+        if self.link {
+            "it is a symbolic link, and links are not followed, as one could point at another \
+             participant's data or at a system file; nothing was read through it"
+                .to_string()
+        } else {
+            format!(
+                "it is {}, not a regular file; nothing was read from it",
+                self.found
+            )
+        }
+    }
+
+    /// What to do about it.
+    pub const HINT: &'static str = "put the file itself here";
+}
+
+impl std::fmt::Display for NotAFile {
+    /// One sentence without parentheses of its own, since callers put it in theirs.
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}; {}", self.sentence(), Self::HINT)
+    }
+}
+
+impl std::error::Error for NotAFile {}
+
+impl From<NotAFile> for std::io::Error {
+    fn from(n: NotAFile) -> std::io::Error {
+        let kind = if n.link {
+            std::io::ErrorKind::Other
+        } else {
+            std::io::ErrorKind::InvalidInput
+        };
+        std::io::Error::new(kind, n)
+    }
+}
+
+/// Why something that is not a regular file is not read ([`NotAFile`] in words).
+pub fn not_a_file_message(t: &std::fs::FileType) -> String {
+    NotAFile::of_type(t).to_string()
 }
 
 /// "a folder", "a FIFO (named pipe)", … for a file type.

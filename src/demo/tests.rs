@@ -812,3 +812,189 @@ fn check_reports_the_planted_defects_and_nothing_else() {
         ]
     );
 }
+
+/// The generated program.yaml's own comment for the key on the line starting `prefix`: that
+/// line's comment and the comment lines right above it.
+fn comment_of(text: &str, prefix: &str) -> String {
+    let lines: Vec<&str> = text.lines().collect();
+    let at: Vec<usize> = (0..lines.len())
+        .filter(|&i| lines[i].starts_with(prefix))
+        .collect();
+    assert_eq!(at.len(), 1, "`{prefix}` is not on one line of:\n{text}");
+    let mut parts = Vec::new();
+    let mut i = at[0];
+    while i > 0 && lines[i - 1].trim_start().starts_with('#') {
+        i -= 1;
+        parts.insert(0, lines[i].trim_start().trim_start_matches('#').trim());
+    }
+    if let Some((_, own)) = lines[at[0]].split_once(" # ") {
+        parts.push(own.trim());
+    }
+    parts.join(" ")
+}
+
+/// The values a comment names in backticks, keys (`command:`) aside.
+fn backticked(s: &str) -> Vec<String> {
+    s.split('`')
+        .skip(1)
+        .step_by(2)
+        .filter(|v| !v.ends_with(':'))
+        .map(str::to_string)
+        .collect()
+}
+
+/// `text` with the value on the line starting `prefix` replaced by `value` (its comment gone).
+fn with_value(text: &str, prefix: &str, value: &str) -> String {
+    text.lines()
+        .map(|l| {
+            if l.starts_with(prefix) {
+                format!("{prefix} {value}")
+            } else {
+                l.to_string()
+            }
+        })
+        .collect::<Vec<_>>()
+        .join("\n")
+}
+
+/// The numbers written after `word` in `s` (`from -50 to 50` → [-50, 50]).
+fn numbers_after(s: &str, word: &str) -> Vec<f64> {
+    let rest = &s[s
+        .find(word)
+        .unwrap_or_else(|| panic!("no `{word}` in: {s}"))..];
+    rest.split(|c: char| c.is_whitespace() || c == ';' || c == ',')
+        .filter_map(|w| w.parse::<f64>().ok())
+        .collect()
+}
+
+/// The demo's program.yaml is where people learn the keys: its comment on `units` named
+/// metric units and conversions but not `us_customary`, the other value (tryout25). Every value
+/// or limit a comment names is read back from the comment and put to the program parser: each
+/// value named is accepted, a value just past each limit is refused, and the enumerations name
+/// exactly the values the parser lists when it refuses one it does not know.
+#[test]
+fn every_comment_of_the_generated_program_yaml_names_what_the_parser_accepts() {
+    let mut buf = Vec::new();
+    write::program_yaml(
+        &mut buf,
+        &Scenario::steady_ground(),
+        &DemoOptions::default(),
+    );
+    let text = String::from_utf8(buf).unwrap();
+    let root = tempfile::tempdir().unwrap();
+    let parse = |t: &str| {
+        crate::program::load::parse_program(root.path(), t)
+            .map(|_| ())
+            .map_err(|d| {
+                d.iter()
+                    .map(|d| d.to_string())
+                    .collect::<Vec<_>>()
+                    .join("\n")
+            })
+    };
+    parse(&text).unwrap();
+    let accepted = |prefix: &str, value: &str| {
+        if let Err(e) = parse(&with_value(&text, prefix, value)) {
+            panic!("`{prefix} {value}` named by its comment is refused: {e}");
+        }
+    };
+    let refused = |prefix: &str, value: &str| {
+        parse(&with_value(&text, prefix, value))
+            .expect_err(&format!("`{prefix} {value}` is accepted"))
+    };
+
+    // Enumerations: the values named are exactly those the parser knows.
+    for (prefix, list) in [
+        ("units:", false),
+        ("  period:", false),
+        ("  formats:", true),
+    ] {
+        let named = backticked(&comment_of(&text, prefix));
+        assert!(named.len() >= 2, "`{prefix}`: {named:?}");
+        let put = |v: &str| {
+            if list {
+                format!("[{v}]")
+            } else {
+                v.to_string()
+            }
+        };
+        for v in &named {
+            accepted(prefix, &put(v));
+        }
+        let e = refused(prefix, &put("nonesuch"));
+        let mut known: Vec<String> = backticked(&e)
+            .into_iter()
+            .filter(|v| v != "nonesuch")
+            .collect();
+        known.sort();
+        known.dedup();
+        let mut named = named;
+        named.sort();
+        assert_eq!(named, known, "`{prefix}` comment against the parser: {e}");
+    }
+    assert!(comment_of(&text, "units:").contains("`us_customary`"));
+
+    // Ranges: both ends accepted, one past each refused.
+    for key in [
+        "weight_change_percent",
+        "activity_minutes_per_week",
+        "weigh_ins_per_week",
+        "food_log_days_per_week",
+    ] {
+        let prefix = format!("  {key}:");
+        let ends = numbers_after(&comment_of(&text, &prefix), "from ");
+        let (lo, hi) = (ends[0], ends[1]);
+        accepted(&prefix, &lo.to_string());
+        accepted(&prefix, &hi.to_string());
+        for past in [lo - 0.5, hi + 0.5] {
+            let e = refused(&prefix, &past.to_string());
+            assert!(e.contains(&format!("targets.{key}")), "{e}");
+        }
+    }
+    let least = numbers_after(&comment_of(&text, "  min_cell_size:"), "at least ")[0];
+    accepted("  min_cell_size:", &least.to_string());
+    assert!(refused("  min_cell_size:", &(least - 1.0).to_string()).contains("min_cell_size"));
+
+    // The program id: its characters and its length.
+    let id = comment_of(&text, "  id: steady");
+    assert!(id.contains("ASCII letters, digits, `-` and `_`"), "{id}");
+    let most = numbers_after(&id, "at most ")[0] as usize;
+    accepted("  id:", "Ab-9_x");
+    accepted("  id:", &"a".repeat(most));
+    for bad in ["a".repeat(most + 1), "a.b".into(), "é".into(), "a b".into()] {
+        assert!(refused("  id:", &format!("\"{bad}\"")).contains("program.id"));
+    }
+
+    // The program's length.
+    let days = numbers_after(&comment_of(&text, "  end:"), "at most ")[0] as i64;
+    let start: NaiveDate = text
+        .lines()
+        .find_map(|l| l.strip_prefix("  start: "))
+        .unwrap()
+        .trim()
+        .parse()
+        .unwrap();
+    accepted(
+        "  end:",
+        &(start + chrono::Duration::days(days)).to_string(),
+    );
+    assert!(
+        refused(
+            "  end:",
+            &(start + chrono::Duration::days(days + 1)).to_string()
+        )
+        .contains("program.end")
+    );
+    accepted("  end:", &(start + chrono::Duration::days(1)).to_string());
+    assert!(refused("  end:", &start.to_string()).contains("program.end"));
+
+    // The built-in modules the comment names are the registry's.
+    let mut named = backticked(&comment_of(&text, "modules:"));
+    named.sort();
+    let mut builtin: Vec<String> = crate::modules::registry::builtin_modules()
+        .iter()
+        .map(|m| m.spec().id)
+        .collect();
+    builtin.sort();
+    assert_eq!(named, builtin);
+}

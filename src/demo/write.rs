@@ -26,24 +26,28 @@ pub fn program_yaml(out: &mut Vec<u8>, scenario: &Scenario, opts: &DemoOptions) 
 format_version: 1
 
 program:
-  id: steady-ground-2026            # letters, digits, - and _; names the output files
+  id: steady-ground-2026            # ASCII letters, digits, `-` and `_`, at most 64; names the output files
   title: Steady Ground 2026
   sponsor: \"Brackenridge Ceramics People & Wellbeing\"   # shown on group reports
   start: {start}
-  end: {end}
+  end: {end}                   # after the start, at most 3653 days (10 years) on
 
-# Reports show metric units; weights in lb and heights in ft/in are converted on reading.
+# Units the reports show: one of `metric` (kg, cm) or `us_customary` (lb, ft/in). Weights and
+# heights are read in any unit docs/GUIDE.md lists (kg, lb, stones, grams; cm, m, in, ft/in)
+# with either.
 units: metric
 
 # Program-wide targets. A participant's profile.yaml may override any of them.
 targets:
-  weight_change_percent: -5         # % of baseline weight by the end (negative = loss)
-  activity_minutes_per_week: 150    # moderate-equivalent minutes (WHO 2020 guidelines)
-  weigh_ins_per_week: 3
-  food_log_days_per_week: 5
+  weight_change_percent: -5         # % of baseline weight by the end (negative = loss); from -50 to 50
+  activity_minutes_per_week: 150    # moderate-equivalent minutes (WHO 2020 guidelines); from 0 to 3000
+  weigh_ins_per_week: 3             # from 0 to 21
+  food_log_days_per_week: 5         # from 0 to 7
   sessions_offered: 16              # weekly for ten weeks, then fortnightly
 
-# Metric modules, run in this order for every participant (none needs settings here).
+# Metric modules, run in this order for every participant (none needs settings here). The
+# built-in ones are `trend`, `energy`, `adherence` and `outcomes`; an external module is an id
+# with a `command:` (docs/GUIDE.md, \"External metric modules\").
 modules:
   - id: trend                       # weight trend from noisy weigh-ins, plateaus, regain
   - id: energy                      # expenditure, achieved energy balance, forecast
@@ -51,13 +55,13 @@ modules:
   - id: outcomes                    # weight change, milestones, lab ranges
 
 report:
-  period: last_full_month           # used when the command line gives no period
-  formats: [html, pdf]
-  group_by: [site]                  # the group report gets a section per site
+  period: last_full_month           # when the command line gives none: one of `last_full_month` or `program_to_date`
+  formats: [html, pdf]              # one or more of `html`, `pdf`
+  group_by: [site]                  # the group report gets a section per site (a key under the profiles' groups)
   out: reports                      # relative to this folder
 
 privacy:
-  min_cell_size: 11                 # group counts from 1 to 10 are suppressed
+  min_cell_size: 11                 # at least 3; group counts from 1 to 10 are suppressed
 ",
         seed = opts.seed,
         n = opts.participants,

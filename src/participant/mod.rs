@@ -513,6 +513,17 @@ pub fn is_folder_error(d: &Diagnostic) -> bool {
         && d.file == PARTICIPANTS_DIR
 }
 
+/// Whether a discovery diagnostic refuses one entry of the participants folder as a
+/// participant's folder (a link, a name that is no usable id or a device name, ids that differ
+/// only in case): every discovery error but those about the folder as a whole
+/// ([`is_folder_error`]). The one test by which `check` counts such a folder among the
+/// participants not usable, and a run among those left out (its last line's "with errors", the
+/// group report's note): `check` counted a linked `participants/SG-099` nowhere ("50 usable, 1
+/// not usable" beside its error) while the run counted it left out.
+pub fn is_refused_folder(d: &Diagnostic) -> bool {
+    d.severity == crate::diag::Severity::Error && !is_folder_error(d)
+}
+
 /// Shows control characters in a name as escapes so a message cannot be garbled by them, and
 /// characters a name shows as nothing (a zero-width space, a direction mark: `weights\u{200b}.csv`
 /// printed as `weights.csv`) so that it does not look like another.
@@ -599,7 +610,18 @@ fn read_input(
             } else {
                 "this file is left out until it can be read; the participant is reported without it, and other participants are not affected"
             };
-            diags.push(ctx.error(format!("cannot read the file ({e})")).hint(hint));
+            // A link or a folder where the file should be: what was expected and found, as
+            // other messages give them ("cannot read the file (it is a folder, not a regular
+            // file; nothing was read from it (put the file itself here))" gave neither).
+            let d = match crate::limits::NotAFile::of(&e) {
+                Some(n) => ctx
+                    .error(format!("cannot read the file: {}", n.sentence()))
+                    .expected("a regular file")
+                    .found(n.found)
+                    .hint(format!("{}; {hint}", crate::limits::NotAFile::HINT)),
+                None => ctx.error(format!("cannot read the file ({e})")).hint(hint),
+            };
+            diags.push(d);
             return Some(Err(()));
         }
     };

@@ -332,6 +332,29 @@ fn links_fifos_and_directories_are_refused_naming_the_file() {
     );
     assert_eq!(errors[2].0, "participants/P1/weights.csv");
     assert!(errors[2].1.contains("symbolic link"), "{errors:?}");
+    // Said as the other messages say it: expected and found, no parentheses within
+    // parentheses ("cannot read the file (it is a folder, not a regular file; nothing was read
+    // from it (put the file itself here))").
+    let intake = &loaded.diagnostics[1];
+    assert_eq!(
+        intake.message,
+        "cannot read the file: it is a folder, not a regular file; nothing was read from it"
+    );
+    assert_eq!(intake.expected.as_deref(), Some("a regular file"));
+    assert_eq!(intake.found.as_deref(), Some("a folder"));
+    assert!(
+        intake
+            .hint
+            .as_deref()
+            .is_some_and(|h| h.starts_with("put the file itself here; this file is left out")),
+        "{intake}"
+    );
+    let weights = &loaded.diagnostics[2];
+    assert_eq!(weights.found.as_deref(), Some("a symbolic link"));
+    assert_eq!(weights.expected.as_deref(), Some("a regular file"));
+    for d in &loaded.diagnostics {
+        assert!(!d.message.contains("(put"), "{d}");
+    }
     // Each bad file costs that file only: the participant stays usable (without data).
     assert!(loaded.data.as_ref().unwrap().weights.is_empty());
     // Only the profile was read.
@@ -368,9 +391,9 @@ fn a_socket_is_named_and_an_unreadable_profile_leaves_the_participant_out() {
     assert_eq!(d.file, "participants/P1/labs.csv");
     assert_eq!(
         d.message,
-        "cannot read the file (it is a socket, not a regular file; nothing was read from it \
-         (put the file itself here))"
+        "cannot read the file: it is a socket, not a regular file; nothing was read from it"
     );
+    assert_eq!(d.found.as_deref(), Some("a socket"));
     assert!(loaded.data.is_some());
 
     let elsewhere = tmp.path().join("profile-elsewhere.yaml");
@@ -388,8 +411,8 @@ fn a_socket_is_named_and_an_unreadable_profile_leaves_the_participant_out() {
     assert_eq!(
         d.hint.as_deref(),
         Some(
-            "the participant is not reported until this file can be read; other participants \
-             are not affected"
+            "put the file itself here; the participant is not reported until this file can be \
+             read; other participants are not affected"
         )
     );
 }

@@ -28,7 +28,16 @@ pub fn load_program(root: &Path) -> Result<Program, Vec<Diagnostic>> {
     }
     let path = root.join(PROGRAM_FILE);
     let bytes = read_bytes(&path).map_err(|e| {
-        let mut d = Diagnostic::error(PROGRAM_FILE, format!("cannot read the program file ({e})"));
+        let mut d = match crate::limits::NotAFile::of(&e) {
+            Some(n) => Diagnostic::error(
+                PROGRAM_FILE,
+                format!("cannot read the program file: {}", n.sentence()),
+            )
+            .expected("a regular file")
+            .found(n.found)
+            .hint(crate::limits::NotAFile::HINT),
+            None => Diagnostic::error(PROGRAM_FILE, format!("cannot read the program file ({e})")),
+        };
         if e.kind() == std::io::ErrorKind::NotFound {
             d = d.hint("create program.yaml in the program folder (see the sample program)");
         }

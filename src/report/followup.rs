@@ -755,7 +755,7 @@ mod tests {
         assert!(iso_dates("about 1150 kcal a day").is_empty());
         assert_eq!(
             iso_dates(
-                "in every 21 days from 2026-06-01 to 2026-11-27 (the last 21, 2026-11-06 to 2026-11-27: about 1.6 kg"
+                "over every 21-day span from 2026-06-01 to 2026-11-27 (the last one, 2026-11-06 to 2026-11-27: about 1.6 kg"
             ),
             ["2026-06-01", "2026-11-27", "2026-11-06"]
         );

@@ -421,6 +421,11 @@ pub fn build(
                     .map(|w| w.date)
                     .filter(|d| *d <= plan.period.to)
                     .max(),
+                plan.modules
+                    .settings("trend")
+                    .and_then(|s| s.get("plateau_band_percent_per_week"))
+                    .and_then(serde_json::Value::as_f64)
+                    .unwrap_or(0.25),
             );
             if !rows.is_empty()
                 && let Some(words) = away_scale_words(&data.weights, plan.period.to, units)
@@ -524,6 +529,7 @@ fn summary(
     to: NaiveDate,
     change_measured: bool,
     last_weigh_in: Option<NaiveDate>,
+    band_percent_per_week: f64,
 ) -> Vec<Kv> {
     let (trend, outcomes) = (v.trend.as_ref(), v.outcomes.as_ref());
     let mut summary = Vec::new();
@@ -567,13 +573,21 @@ fn summary(
     }
     // With too few recent weigh-ins the headline says the movement cannot be seen; a rate
     // beside it (from a week of data, or weekends only) would say the opposite.
-    if let Some(r) = trend
+    if let Some((t, r)) = trend
         .filter(|t| t.status != Status::InsufficientData)
-        .and_then(|t| t.slope_kg_per_week.value)
+        .and_then(|t| Some((t, t.slope_kg_per_week.value?)))
     {
+        // A rate the weigh-ins do not pin down gets its 95 % range, as the headline gives it
+        // for `unclear`: a plateau resting on one weigh-in in four weeks read "0.00 kg/week"
+        // here, from a slope of −0.002 kg/week whose range was −0.67 to +0.67 (sample, SG-046).
+        let range = if t.status == Status::Unclear || slope_is_wide(t, band_percent_per_week) {
+            slope_range(t, units)
+        } else {
+            String::new()
+        };
         summary.push(Kv::new(
             "Recent rate (last 4 weeks)",
-            &fmt::rate_per_week(r, units),
+            &format!("{}{range}", fmt::rate_per_week(r, units)),
         ));
     }
     // A rise from the lowest trend weight, once the level test confirms it.
@@ -929,6 +943,35 @@ fn extra_modules(results: &ModuleResults) -> Vec<ExtraView> {
         .collect()
 }
 
+/// The last four weeks' slope's 95 % range in the program's units, as the headline and the
+/// summary print it (` (95 % range −0.25 to +0.05 kg/week)`), empty without a finite range.
+fn slope_range(t: &TrendView, units: UnitSystem) -> String {
+    match (t.slope_kg_per_week.lower, t.slope_kg_per_week.upper) {
+        (Some(l), Some(u)) if l.is_finite() && u.is_finite() => format!(
+            " (95 % range {} to {})",
+            fmt::signed(fmt::weight_value(l, units), 2),
+            fmt::rate_per_week(u, units)
+        ),
+        _ => String::new(),
+    }
+}
+
+/// Whether the last four weeks' slope interval is wider than the whole plateau band (the
+/// `trend` module's `plateau_band_percent_per_week` either side of zero, of the current trend
+/// weight): the weigh-ins of those weeks alone could not tell a level weight from one moving at
+/// the band's edge, so the rate is printed with its range. A rate pinned down closer than that
+/// is printed alone.
+fn slope_is_wide(t: &TrendView, band_percent_per_week: f64) -> bool {
+    let (Some(l), Some(u), Some(w)) = (
+        t.slope_kg_per_week.lower,
+        t.slope_kg_per_week.upper,
+        t.current_weight_kg.value,
+    ) else {
+        return false;
+    };
+    u - l > 2.0 * band_percent_per_week / 100.0 * w
+}
+
 /// Weigh-in days in the last four weeks below which a level trend is said to rest mostly on
 /// the weeks before ([`headline`]; program choice: one a week).
 const MIN_RECENT_WEIGH_IN_DAYS: usize = 4;
@@ -959,17 +1002,7 @@ fn headline(
     let rate_s = rate
         .map(|r| fmt::rate_per_week(r, units))
         .unwrap_or_default();
-    let rate_range = trend
-        .and_then(|t| Some((t.slope_kg_per_week.lower?, t.slope_kg_per_week.upper?)))
-        .filter(|(l, u)| l.is_finite() && u.is_finite())
-        .map(|(l, u)| {
-            format!(
-                " (95 % range {} to {})",
-                fmt::signed(fmt::weight_value(l, units), 2),
-                fmt::rate_per_week(u, units)
-            )
-        })
-        .unwrap_or_default();
+    let rate_range = trend.map(|t| slope_range(t, units)).unwrap_or_default();
     // Someone who has left gets no "last four weeks" status: their records stop at leaving,
     // or, when they only stopped the program, their later weigh-ins are follow-up (counted in
     // the program's outcome figures) and nothing here is advice for the time since.
@@ -2770,6 +2803,7 @@ mod activity_unread_tests {
             NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
             true,
             None,
+            0.25,
         )
         .into_iter()
         .find(|k| k.label == "Back up from your lowest")
@@ -2804,7 +2838,7 @@ mod activity_unread_tests {
             outcomes: None,
         };
         let to = NaiveDate::from_ymd_opt(2026, 9, 30).unwrap();
-        let row = &summary(&v, UnitSystem::Metric, to, true, None)[0];
+        let row = &summary(&v, UnitSystem::Metric, to, true, None, 0.25)[0];
         assert_eq!(
             row.label,
             "Weight at your last weigh-in (15 Jul 2026, trend)"
@@ -2816,7 +2850,7 @@ mod activity_unread_tests {
             ..v
         };
         assert_eq!(
-            summary(&v, UnitSystem::Metric, to, true, None)[0].label,
+            summary(&v, UnitSystem::Metric, to, true, None, 0.25)[0].label,
             "Current weight (trend)"
         );
     }
@@ -2964,6 +2998,113 @@ mod activity_unread_tests {
         );
     }
 
+    /// A plateau resting on one weigh-in in four weeks (sample, SG-046: slope −0.002 kg/week,
+    /// 95 % −0.672 to +0.667, at 82.8 kg) read "Recent rate (last 4 weeks) 0.00 kg/week", as
+    /// precise as any. A rate whose interval is wider than the plateau band (0.25 % of the
+    /// weight either side: 0.41 kg/week wide at 82.8 kg) now carries its range, as does an
+    /// `unclear` one (as its headline does); a rate pinned down closer is printed alone.
+    #[test]
+    fn a_recent_rate_the_weigh_ins_do_not_pin_down_carries_its_range() {
+        let rate = |status: Status, value: f64, lower: f64, upper: f64, kg: f64, units| {
+            let mut t = TrendView {
+                status,
+                ..TrendView::default()
+            };
+            t.slope_kg_per_week.value = Some(value);
+            t.slope_kg_per_week.lower = Some(lower);
+            t.slope_kg_per_week.upper = Some(upper);
+            t.current_weight_kg.value = Some(kg);
+            t.days_since_last_weigh_in = Some(2.0);
+            let v = BuiltinViews {
+                trend: Some(t),
+                energy: None,
+                adherence: None,
+                outcomes: None,
+            };
+            summary(
+                &v,
+                units,
+                NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
+                true,
+                None,
+                0.25,
+            )
+            .into_iter()
+            .find(|k| k.label == "Recent rate (last 4 weeks)")
+            .expect("a recent rate")
+            .value
+        };
+        assert_eq!(
+            rate(
+                Status::Plateau,
+                -0.002,
+                -0.672,
+                0.667,
+                82.75,
+                UnitSystem::Metric
+            ),
+            "0.00 kg/week (95 % range −0.67 to +0.67 kg/week)"
+        );
+        assert_eq!(
+            rate(
+                Status::Plateau,
+                -0.002,
+                -0.672,
+                0.667,
+                82.75,
+                UnitSystem::UsCustomary
+            ),
+            "0.00 lb/week (95 % range −1.48 to +1.47 lb/week)"
+        );
+        // Just wider than the band's 0.4138 kg/week at 82.75 kg, and just narrower.
+        assert!(
+            rate(
+                Status::Stable,
+                0.0,
+                -0.207,
+                0.207,
+                82.75,
+                UnitSystem::Metric
+            )
+            .contains("95 % range")
+        );
+        assert_eq!(
+            rate(
+                Status::Stable,
+                0.0,
+                -0.206,
+                0.206,
+                82.75,
+                UnitSystem::Metric
+            ),
+            "0.00 kg/week"
+        );
+        // A losing rate pinned down (sample, SG-025) is printed alone; an unclear one has its
+        // range whatever its width (sample, SG-033).
+        assert_eq!(
+            rate(
+                Status::Losing,
+                -0.296,
+                -0.380,
+                -0.211,
+                94.39,
+                UnitSystem::Metric
+            ),
+            "−0.30 kg/week"
+        );
+        assert_eq!(
+            rate(
+                Status::Unclear,
+                -0.100,
+                -0.254,
+                0.054,
+                86.65,
+                UnitSystem::Metric
+            ),
+            "−0.10 kg/week (95 % range −0.25 to +0.05 kg/week)"
+        );
+    }
+
     /// "Too few recent weigh-ins to see how your weight moved" stood above "Recent rate (last
     /// 4 weeks) +0.44 kg/week".
     #[test]
@@ -2986,6 +3127,7 @@ mod activity_unread_tests {
                 NaiveDate::from_ymd_opt(2026, 9, 30).unwrap(),
                 true,
                 None,
+                0.25,
             )
             .iter()
             .any(|k| k.label.starts_with("Recent rate"))

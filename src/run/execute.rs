@@ -103,14 +103,32 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
             by: super::Blame::Program,
             diagnostics: vec![d],
         })?;
+    // The output folder first: a path through a file names the file, not the ledger beside it.
+    plan.check_output()?;
     if plan.shard.is_none() {
         check_ledger_folder(plan)?;
     }
     let staging = plan.begin_staging()?;
+    // Folders refused while listing `participants/` are counted as `check` counts them (among
+    // the participants, not usable) and named in the errors below; a run of some participants
+    // (`--only`, a shard) counts its own.
+    let refused = if plan.only.is_empty() && plan.shard.is_none() {
+        discovery
+            .iter()
+            .filter(|d| participant::is_refused_folder(d))
+            .count()
+    } else {
+        0
+    };
     tracing::info!(
-        "program {}: {} participants{}, period {} to {}, as of {}",
+        "program {}: {} participants{}{}, period {} to {}, as of {}",
         plan.program.info.id,
-        dirs.len(),
+        dirs.len() + refused,
+        match refused {
+            0 => String::new(),
+            1 => " (1 folder refused)".to_string(),
+            n => format!(" ({n} folders refused)"),
+        },
         plan.shard
             .map(|s| format!(" in shard {s}"))
             .unwrap_or_default(),
@@ -302,7 +320,7 @@ fn tally(
             .count(),
         skipped_folders: discovery
             .iter()
-            .filter(|d| d.severity == Severity::Error)
+            .filter(|d| participant::is_refused_folder(d))
             .count(),
         ..Default::default()
     };

@@ -48,7 +48,8 @@ pub struct RunSummary {
     pub warnings: usize,
     /// Warnings about the participants folder (stray files, links).
     pub program_warnings: usize,
-    /// Participant folders skipped because their name is not a usable id.
+    /// Participant folders refused while listing `participants/` (a link, a name that is no
+    /// usable id: [`crate::participant::is_refused_folder`]).
     pub skipped_folders: usize,
 }
 

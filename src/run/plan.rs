@@ -194,7 +194,28 @@ impl RunPlan {
     /// Takes the output folder for this run (see [`Staging::begin`]). A refusal names the
     /// folder and who named it: the command line or program.yaml.
     pub fn begin_staging(&self) -> Result<Staging, RunError> {
-        Staging::begin(&self.output_target(), self.access).map_err(|e| match e {
+        Staging::begin(&self.output_target(), self.access).map_err(|e| self.staging_error(e))
+    }
+
+    /// Refuses an output folder a run could not write as [`RunPlan::begin_staging`] would
+    /// refuse it (in its words and with its exit code), nothing created or locked: the path
+    /// through a file, the program folder, a folder of other things. A run checks it before
+    /// the group-report ledger's folder, as `check` does: a `report.out` under a file
+    /// (`afile/reports`) was "group-report ledger: …/afile/reports.ledger: Not a directory (os
+    /// error 20)", exit 6, as if the disk had failed, while `check` named the file (exit 3).
+    /// Other errors (reading the folder) are left to the run's own start.
+    pub fn check_output(&self) -> Result<(), RunError> {
+        match self.output_target().check() {
+            Err(e @ (StagingError::Refused(_) | StagingError::Partial(_))) => {
+                Err(self.staging_error(e))
+            }
+            _ => Ok(()),
+        }
+    }
+
+    /// A staging error as the run reports it: who named the folder decides the exit code.
+    fn staging_error(&self, e: StagingError) -> RunError {
+        match e {
             // `--only` into the program's own complete output: the command line is wrong (it
             // needs `--out DIR`), not program.yaml, so exit 2 and no program.yaml location.
             StagingError::Partial(m) => RunError::Refused {
@@ -218,7 +239,7 @@ impl RunPlan {
                 by: Blame::Program,
             },
             other => other.into(),
-        })
+        }
     }
 
     /// What the reports see of this run.

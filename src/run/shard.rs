@@ -291,6 +291,7 @@ fn inputs_unchanged(
 }
 
 fn merge(plan: &RunPlan, dirs: &[PathBuf], shards: &[ShardFile]) -> Result<RunSummary, RunError> {
+    plan.check_output()?;
     execute::check_ledger_folder(plan)?;
     let folders = participants_unchanged(plan, shards)?;
     let staging = plan.begin_staging()?;

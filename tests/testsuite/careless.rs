@@ -673,6 +673,65 @@ fn an_output_folder_under_a_file_is_refused_naming_the_file() {
     );
 }
 
+/// `report.out` through a file (`out: afile/reports`, `afile` a file in the program folder) and
+/// no `--state`: the run looked for the program's own ledger beside `report.out` first and
+/// stopped on it, "group-report ledger: …/afile/reports.ledger: Not a directory (os error
+/// 20)", exit 6 (a failed write), while `check` named the file (exit 3). The output folder is
+/// now checked first: the run gives `check`'s message at `report.out`'s line and column, exit 3
+/// (program.yaml named it); `--out afile/sub` gives the same words, exit 2, from both.
+#[test]
+fn a_report_out_under_a_file_is_refused_naming_the_file_before_the_ledger() {
+    let t = ProgramTest::fixture("report-small");
+    let file = t.dir.join("afile");
+    fs::write(&file, "mine\n").unwrap();
+    let yaml = t.dir.join("program.yaml");
+    let text = fs::read_to_string(&yaml).unwrap();
+    let edited = text.replace("  out: reports", "  out: afile/reports");
+    assert_ne!(edited, text);
+    fs::write(&yaml, &edited).unwrap();
+    let line = edited
+        .lines()
+        .position(|l| l == "  out: afile/reports")
+        .unwrap()
+        + 1;
+    let at = format!("program.yaml:{line}:8: refusing to write the output to ");
+    let named = "afile is a file, not a folder, so no folder can be made inside it";
+    let run = t.run(&["run", "{dir}", "--as-of", AS_OF, "--formats", "html"]);
+    assert_eq!(run.code, 3, "{run:?}");
+    assert!(run.stderr.contains(&at), "{}", run.stderr);
+    assert!(run.stderr.contains(named), "{}", run.stderr);
+    assert!(!run.stderr.contains("ledger"), "{}", run.stderr);
+    assert!(!run.stderr.contains("os error"), "{}", run.stderr);
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF]);
+    assert_eq!(check.code, 3, "{check:?}");
+    assert!(
+        check.stdout.contains(&at) && check.stdout.contains(named),
+        "{check:?}"
+    );
+
+    // Named on the command line: the same words, exit 2, also with report.out under the file.
+    let sub = file.join("sub");
+    let sub = sub.to_str().unwrap();
+    let run = t.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        sub,
+    ]);
+    assert_eq!(run.code, 2, "{run:?}");
+    assert!(run.stderr.contains("(--out): "), "{}", run.stderr);
+    assert!(run.stderr.contains(named), "{}", run.stderr);
+    assert!(!run.stderr.contains("os error"), "{}", run.stderr);
+    let check = t.run(&["check", "{dir}", "--as-of", AS_OF, "--out", sub]);
+    assert_eq!(check.code, 2, "{check:?}");
+    assert!(check.stdout.contains(named), "{check:?}");
+    assert_eq!(fs::read_to_string(&file).unwrap(), "mine\n");
+}
+
 /// `~` that no shell expanded: `--out "~/reports"` quoted in a cron line, or `out: ~/reports`
 /// in program.yaml. The reports went into a folder named `~` in the working (or program)
 /// folder, with no word; a later `rm -r ~` to tidy it up is the user's home folder.

@@ -88,7 +88,7 @@ fn assert_report(text: &str) {
         );
     }
     assert!(
-        text.contains("checked 15 participants: 13 usable, 2 not usable; 5 errors, 8 warnings"),
+        text.contains("checked 16 participants: 13 usable, 3 not usable; 5 errors, 8 warnings"),
         "{text}"
     );
 }
@@ -319,4 +319,64 @@ fn a_group_by_key_no_profile_gives_is_named_by_check_and_run() {
     let r = run(&t, "out");
     assert!(r.code <= 4, "{r:?}");
     assert!(r.stderr.contains(&at), "{r:?}");
+}
+
+/// A participant folder refused as a whole (a link to a folder elsewhere, a name that is no
+/// id) is counted where it is listed: `check` said "checked 51 participants: 50 usable, 1 not
+/// usable; 2 errors" beside the error for a linked `participants/SG-099`, while the run left
+/// it out and counted it ("50 participants reported, 2 with errors"). Both now count it.
+#[test]
+fn a_refused_participant_folder_is_counted_by_check_as_by_run() {
+    let t = ProgramTest::demo(3);
+    let elsewhere = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let target = elsewhere.path().join("P-LINKED");
+    std::fs::create_dir(&target).unwrap();
+    let first = std::fs::read_dir(t.dir.join("participants"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .min()
+        .unwrap();
+    for f in std::fs::read_dir(&first).unwrap() {
+        let f = f.unwrap().path();
+        std::fs::copy(&f, target.join(f.file_name().unwrap())).unwrap();
+    }
+    std::os::unix::fs::symlink(&target, t.dir.join("participants/SG-099")).unwrap();
+    std::fs::create_dir(t.dir.join("participants/not an id")).unwrap();
+
+    let check = t.run(&["check", ".", "--as-of", AS_OF]);
+    assert_eq!(check.code, 4, "{check:?}");
+    assert!(
+        check
+            .stdout
+            .contains("checked 5 participants: 3 usable, 2 not usable; 2 errors"),
+        "{}",
+        check.stdout
+    );
+    let run = t.run(&[
+        "run",
+        ".",
+        "--as-of",
+        AS_OF,
+        "--formats",
+        "html",
+        "--out",
+        &t.dir.join("out").to_string_lossy(),
+        "--state",
+        &t.dir.join(".state").to_string_lossy(),
+    ]);
+    assert_eq!(run.code, 4, "{run:?}");
+    assert!(
+        run.stderr
+            .contains("program steady-ground-2026: 5 participants (2 folders refused), period"),
+        "{}",
+        run.stderr
+    );
+    assert!(
+        run.stderr.contains("done in")
+            && run
+                .stderr
+                .contains(": 3 participants reported, 2 with errors,"),
+        "{}",
+        run.stderr
+    );
 }

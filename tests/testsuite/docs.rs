@@ -233,3 +233,55 @@ fn links_between_the_documents_resolve() {
     assert!(links >= 10, "{links} links");
     assert!(broken.is_empty(), "{broken:#?}");
 }
+
+/// README.md's "Outputs" tree listed what is inside `reports/` and not the group-report ledger
+/// a run makes beside it, which stays when `reports/` is replaced or deleted. The tree names
+/// the ledger where a run puts it: without `--state` beside `report.out`'s folder whatever
+/// `--out` says, with `--state DIR` there.
+#[test]
+fn the_readmes_outputs_tree_names_the_ledger_where_a_run_puts_it() {
+    let t = crate::harness::ProgramTest::demo(3);
+    let elsewhere = tempfile::tempdir_in(env!("CARGO_TARGET_TMPDIR")).unwrap();
+    let out = elsewhere.path().join("preview");
+    let o = t.run(&[
+        "run",
+        "{dir}",
+        "--formats",
+        "html",
+        "--out",
+        &out.to_string_lossy(),
+    ]);
+    assert!(o.code <= 1, "{o:?}");
+    // Without --state: the program's own, `report.out`'s name plus `.ledger`, beside it.
+    assert!(t.dir.join("reports.ledger/ledger.json").is_file(), "{o:?}");
+    assert!(t.dir.join("reports.ledger/secret.key").is_file());
+    assert!(!elsewhere.path().join("preview.ledger").exists());
+    // With --state: there, and none made beside report.out.
+    let u = crate::harness::ProgramTest::demo(3);
+    let state = elsewhere.path().join("state");
+    let o = u.run(&[
+        "run",
+        "{dir}",
+        "--formats",
+        "html",
+        "--state",
+        &state.to_string_lossy(),
+    ]);
+    assert!(o.code <= 1, "{o:?}");
+    assert!(state.join("ledger.json").is_file(), "{o:?}");
+    assert!(!u.dir.join("reports.ledger").exists());
+
+    let outputs = section("README.md", "## Outputs");
+    let tree = outputs.split("```").nth(1).expect("the Outputs tree");
+    let line = tree
+        .lines()
+        .find(|l| l.starts_with("reports.ledger/"))
+        .unwrap_or_else(|| panic!("the Outputs tree does not list reports.ledger/:\n{tree}"));
+    for words in ["beside reports/", "whatever --out says", "--state DIR"] {
+        assert!(line.contains(words), "`{words}` not in: {line}");
+    }
+    assert!(
+        tree.contains("ledger.json, secret.key"),
+        "the ledger's files are not named:\n{tree}"
+    );
+}

@@ -425,7 +425,7 @@ fn links_and_special_files_are_never_read() {
     ] {
         assert!(
             r.stderr
-                .contains(&format!("participants/{file}: cannot read the file (it is"))
+                .contains(&format!("participants/{file}: cannot read the file: it is"))
                 && r.stderr.contains(what),
             "{file}: {}",
             r.stderr
@@ -487,7 +487,7 @@ fn links_and_special_files_are_never_read() {
     let shown = format!("{}{}", r.stdout, r.stderr);
     assert!(
         shown.contains(
-            "participants/SG-002/weights.csv: cannot read the file (it is a symbolic link"
+            "participants/SG-002/weights.csv: cannot read the file: it is a symbolic link"
         ),
         "{shown}"
     );
@@ -504,7 +504,7 @@ fn links_and_special_files_are_never_read() {
     );
     let shown = format!("{}{}", r.stdout, r.stderr);
     assert!(
-        shown.contains("program.yaml: cannot read the program file (it is a symbolic link"),
+        shown.contains("program.yaml: cannot read the program file: it is a symbolic link"),
         "{shown}"
     );
 }

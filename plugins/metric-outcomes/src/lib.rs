@@ -1382,9 +1382,10 @@ fn push_fast_loss_flag(
     };
     // How long the loss has been this fast, not only the test's window: "over 21 days in a row
     // (most recently 6 Nov to 27 Nov)" was all a clinician read of 26 weeks at 1.6 kg a week.
+    // "Over every 21-day span from … to …": it read "in every 21 days from … (the last 21, …)".
     let when = if from < d0 {
         format!(
-            "in every {span} days from {from} to {d1} (the last {span}, {d0} to {d1}: {} a \
+            "over every {span}-day span from {from} to {d1} (the last one, {d0} to {d1}: {} a \
              week; fastest {} a week)",
             rate_beside_limit(rate, limit),
             rate_beside_limit(fastest, limit),

@@ -437,10 +437,10 @@ fn fast_loss_needs_a_sustained_rate_above_the_limit() {
     // to day 30, every 21-day window from 2027-03-01 on.
     assert_eq!(
         out.flags[0].message,
-        "Weight came down faster than 1.0 kg (2.2 lb) a week in every 21 days from 2027-03-01 \
-         to 2027-03-31 (the last 21, 2027-03-10 to 2027-03-31: about 1.4 kg (3.1 lb) a week; \
-         fastest about 1.4 kg (3.1 lb) a week). Losing more than about 1 kg (2 lb) a week for \
-         several weeks is worth reviewing with a licensed clinician."
+        "Weight came down faster than 1.0 kg (2.2 lb) a week over every 21-day span from \
+         2027-03-01 to 2027-03-31 (the last one, 2027-03-10 to 2027-03-31: about 1.4 kg (3.1 lb) \
+         a week; fastest about 1.4 kg (3.1 lb) a week). Losing more than about 1 kg (2 lb) a \
+         week for several weeks is worth reviewing with a licensed clinician."
     );
 
     // Exactly 1 kg/week for 30 days does not *exceed* the limit.
@@ -514,8 +514,8 @@ fn fast_loss_at_just_below_and_just_above_the_limit_in_kg_and_lb() {
     let above = flag(1.01, kg.clone()).expect("1.01 kg a week is faster than 1 kg");
     assert!(
         above.starts_with(
-            "Weight came down faster than 1.0 kg (2.2 lb) a week in every 21 days from \
-             2027-03-01 to 2027-03-31 (the last 21, 2027-03-10 to 2027-03-31: about 1.01 kg \
+            "Weight came down faster than 1.0 kg (2.2 lb) a week over every 21-day span from \
+             2027-03-01 to 2027-03-31 (the last one, 2027-03-10 to 2027-03-31: about 1.01 kg \
              (2.23 lb) a week; fastest about 1.01 kg (2.23 lb) a week)."
         ),
         "{above}"
