@@ -2831,19 +2831,13 @@ pub fn parse_labs(
         };
         let raw = c.required_text("value", d)?;
         // `>14.0`, `> 14.0 %`, `>=14`, `<5.0`: a value beyond the assay's range, read as the
-        // bound it is (`censored`), not as the number.
+        // bound it is (`censored`), not as the number. A bound before a blood-pressure pair
+        // (`>180/110`, as a monitor past its range or a record of a crisis writes it) bounds
+        // both numbers, as it would each on a row of its own: systolic above 180, diastolic
+        // above 110. It was dropped with a warning, and with it the severe-pressure flag on the
+        // one reading most likely to need it; the flag reads each bound on its safe side
+        // (`> 180` is above 180, `> 110` not known to be above 120).
         let (censored, value_text) = split_censor(&raw);
-        if censored.is_some() && kind == LabName::BloodPressure {
-            d.push(
-                c.warn(
-                    "value",
-                    "a bound (`>` or `<`) is not read for a blood pressure pair; the row is dropped",
-                )
-                .expected("systolic/diastolic, e.g. `128/82`, or each on a row of its own")
-                .found(format!("`{raw}`")),
-            );
-            return None;
-        }
         let (num_text, unit_in_value) = split_value_unit(value_text);
         let unit = c
             .text("unit")

@@ -1275,3 +1275,45 @@ fn every_some_of_each_in_a_report_is_a_combined_row_of_the_tidy_options() {
         assert!(mixed.contains(&id.to_string()), "{id}: {mixed:?}");
     }
 }
+
+/// `blood_pressure,>180/110,mmHg` in labs.csv (a monitor past its range, or a record of a
+/// crisis) was dropped with a warning ("a bound (`>` or `<`) is not read for a blood pressure
+/// pair"), so the severe-pressure flag never saw the reading most likely to need it and the
+/// report went on with its suggestions. Now the bound bounds both numbers, the flag reads
+/// `> 180` systolic on its safe side (above 180), and the report holds its suggestions.
+#[test]
+fn a_blood_pressure_pair_with_a_bound_reaches_the_severe_pressure_flag() {
+    let prog = ProgramTest::sample();
+    let labs = prog.dir.join("participants/SG-001/labs.csv");
+    std::fs::write(
+        &labs,
+        "date,test,value,unit\n2026-09-15,hba1c,5.1,%\n2026-09-20,blood_pressure,>180/110,mmHg\n",
+    )
+    .unwrap();
+    let o = prog.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-10-01",
+        "--only",
+        "SG-001",
+        "--formats",
+        "html",
+        "--out",
+        "out",
+    ]);
+    assert!(o.code <= 4, "{}", o.stderr);
+    let dq = std::fs::read_to_string(prog.dir.join("out/metrics/data-quality.csv")).unwrap();
+    assert!(!dq.contains("labs.csv,3,"), "{dq}");
+    let html = std::fs::read_to_string(prog.dir.join("out/participants/SG-001.html")).unwrap();
+    let text = html.replace("&gt;", ">");
+    assert!(!text.contains("blood pressure pair"), "{text}");
+    assert!(
+        text.contains("The most recent blood pressure (systolic > 180 mmHg on 20 Sep 2026) is above 180/120 mmHg"),
+        "{text}"
+    );
+    // The diastolic bound, `> 110`, is not known to be above 120: it is not named.
+    assert!(!text.contains("diastolic > 110 mmHg on"), "{text}");
+    // The guidance is the clinician's row: no amounts.
+    assert!(!text.contains("kcal a day less than now"), "{text}");
+}

@@ -46,6 +46,11 @@ use std::collections::BTreeMap;
 /// module raises its clinical `pregnancy` flag from the same word).
 const PREGNANCY_FLAG: &str = "pregnant";
 
+/// The profile flag that notes breastfeeding (profile.yaml `flags`, also written `breast
+/// feeding` or `lactating`; the `outcomes` module raises its clinical `breastfeeding` flag from
+/// the same word).
+const BREASTFEEDING_FLAG: &str = "breastfeeding";
+
 /// β = β_TEF + β_AT: the part of an intake change the body gives back (Hall et al. 2011).
 const BETA: f64 = BETA_TEF + BETA_AT;
 /// z quantile of the standard normal for a two-sided 95 % interval.
@@ -411,6 +416,9 @@ struct Person<'a> {
     /// The profile notes a pregnancy: weight change then includes the baby, the placenta and
     /// extra fluid, which the adult energy-balance model does not describe.
     pregnant: bool,
+    /// The profile notes breastfeeding: milk carries energy out of the body that the model
+    /// does not count, so every intake read from the weight trend would be too low by it.
+    breastfeeding: bool,
 }
 
 impl Person<'_> {
@@ -554,6 +562,8 @@ impl Person<'_> {
         let ceiling = self.max_intake_x_rmr * self.rmr_at(bw, d);
         if self.pregnant {
             Some(Unexplained::Pregnancy)
+        } else if self.breastfeeding {
+            Some(Unexplained::Breastfeeding)
         } else if intake < 0.0 {
             Some(Unexplained::Fall)
         } else if intake < self.very_low_implied {
@@ -668,6 +678,24 @@ pub(crate) fn run(
              describe, so the intake implied by the weight trend, what it says about the food \
              logs, the forecast and the options are not shown.",
         );
+    } else if cur.unexplained == Some(Unexplained::Breastfeeding) {
+        // Milk energy output is about 500 kcal a day in the first six months of exclusive
+        // breastfeeding and about 400 after (0.78 and 0.6 L a day at 0.67 kcal/g: IOM 2005,
+        // Dietary Reference Intakes for Energy, Carbohydrate, Fiber, Fat, Fatty Acids,
+        // Cholesterol, Protein, and Amino Acids, ch. 5, as summarised by Butte & King 2005,
+        // Public Health Nutr 8:1010, the FAO/WHO/UNU 2004 background paper, which gives
+        // 505 kcal a day extra in the first six months; checked against published summaries of
+        // the factorial method, the chapter itself from memory). None of it is in the model,
+        // so the implied intake would read that much too low, the logs as over-reported by it,
+        // and the forecast a loss that is not coming (a "past underweight" note at BMI 25.8).
+        out.push_flag(
+            EnergyFlag::NotModelled.as_str(),
+            FlagSeverity::Info,
+            "The profile notes breastfeeding. Making milk uses energy, often around 500 kcal a \
+             day, which this energy-balance model for adults does not count, so the intake \
+             implied by the weight trend would read too low by about that much. It, what it \
+             says about the food logs, the forecast and the options are not shown.",
+        );
     } else if let Some(why @ (Unexplained::Fall | Unexplained::VeryLow { .. })) = cur.unexplained {
         // Too low to print: a very-low-calorie diet's intake in a program that is not one, or
         // a fall the weigh-ins cannot carry. Either is for a clinician; the message names no
@@ -706,7 +734,10 @@ pub(crate) fn run(
                 intake.round(),
                 s.max_intake_x_rmr
             ),
-            Unexplained::Pregnancy | Unexplained::Fall | Unexplained::VeryLow { .. } => {
+            Unexplained::Pregnancy
+            | Unexplained::Breastfeeding
+            | Unexplained::Fall
+            | Unexplained::VeryLow { .. } => {
                 unreachable!("handled above")
             }
         };
@@ -835,6 +866,7 @@ fn start<'a>(
         max_intake_x_rmr: s.max_intake_x_rmr,
         very_low_implied: s.very_low_implied,
         pregnant: data.profile.flags.iter().any(|f| f == PREGNANCY_FLAG),
+        breastfeeding: data.profile.flags.iter().any(|f| f == BREASTFEEDING_FLAG),
     };
     Some((
         person,
@@ -899,6 +931,9 @@ enum Unexplained {
     /// Any weight change in pregnancy: not adult energy balance (IOM 2009, Weight Gain During
     /// Pregnancy — from memory).
     Pregnancy,
+    /// Any weight change while breastfeeding: milk's energy (about 500 kcal/d in the first six
+    /// months; IOM 2005, see [`run`]) is an expenditure the model does not count.
+    Breastfeeding,
 }
 
 /// SD of a slope from its 95 % band.

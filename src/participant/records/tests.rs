@@ -1685,7 +1685,7 @@ fn censored_lab_values_are_read_as_bounds() {
     )
     .unwrap();
     let got: Vec<(f64, Option<Censor>)> = v.iter().map(|l| (l.value, l.censored)).collect();
-    assert_eq!(got.len(), 6, "{diags:#?}");
+    assert_eq!(got.len(), 8, "{diags:#?}");
     assert_eq!(got[0], (14.0, Some(Censor::Above)));
     assert_eq!(got[1], (14.0, Some(Censor::Above)));
     assert_eq!(got[2], (14.0, Some(Censor::AtLeast)));
@@ -1695,12 +1695,21 @@ fn censored_lab_values_are_read_as_bounds() {
     assert_eq!(got[4].1, Some(Censor::AtMost));
     assert_eq!(v[4].unit_as_written, "mmol/mol");
     assert_eq!(got[5], (6.1, None));
-    // A bound on a blood pressure pair is not read, and says so.
-    assert_eq!(diags.len(), 1, "{diags:#?}");
-    assert!(
-        diags[0].message.contains("blood pressure pair"),
-        "{diags:#?}"
+    // A bound on a blood pressure pair bounds both numbers, as on a row of its own each: it
+    // was dropped with a warning ("a bound … is not read for a blood pressure pair").
+    assert!(diags.is_empty(), "{diags:#?}");
+    let bp: Vec<(LabTest, f64, Option<Censor>)> = v[6..]
+        .iter()
+        .map(|l| (l.test, l.value, l.censored))
+        .collect();
+    assert_eq!(
+        bp,
+        [
+            (LabTest::SystolicBp, 180.0, Some(Censor::Above)),
+            (LabTest::DiastolicBp, 110.0, Some(Censor::Above)),
+        ]
     );
+    assert!(v[6..].iter().all(|l| l.unit_as_written == "mmHg"));
 }
 
 /// A `<` bound below the plausible range (an assay's lower limit: `<2.5 %`, `<0.5 mmol/L`) is
