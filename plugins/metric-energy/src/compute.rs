@@ -684,17 +684,19 @@ pub(crate) fn run(
         // Dietary Reference Intakes for Energy, Carbohydrate, Fiber, Fat, Fatty Acids,
         // Cholesterol, Protein, and Amino Acids, ch. 5, as summarised by Butte & King 2005,
         // Public Health Nutr 8:1010, the FAO/WHO/UNU 2004 background paper, which gives
-        // 505 kcal a day extra in the first six months; checked against published summaries of
-        // the factorial method, the chapter itself from memory). None of it is in the model,
+        // 505 kcal a day extra in the first six months. The IOM volumes and energy density are
+        // checked against a published summary of its factorial method; the FAO/WHO/UNU figure
+        // and the chapter number are from memory). None of it is in the model,
         // so the implied intake would read that much too low, the logs as over-reported by it,
         // and the forecast a loss that is not coming (a "past underweight" note at BMI 25.8).
         out.push_flag(
             EnergyFlag::NotModelled.as_str(),
             FlagSeverity::Info,
-            "The profile notes breastfeeding. Making milk uses energy, often around 500 kcal a \
-             day, which this energy-balance model for adults does not count, so the intake \
-             implied by the weight trend would read too low by about that much. It, what it \
-             says about the food logs, the forecast and the options are not shown.",
+            "While breastfeeding, making milk uses energy, often around 500 kcal a day, that \
+             this energy-balance model for adults does not count: the energy use shown leaves \
+             it out, and an intake read from the weight trend would be too low by about that \
+             much. So that intake, what it says about the food logs, the forecast and the \
+             options are not shown.",
         );
     } else if let Some(why @ (Unexplained::Fall | Unexplained::VeryLow { .. })) = cur.unexplained {
         // Too low to print: a very-low-calorie diet's intake in a program that is not one, or

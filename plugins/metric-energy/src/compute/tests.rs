@@ -1470,7 +1470,7 @@ fn breastfeeding_gives_no_implied_intake_and_says_why() {
         .expect("flag");
     assert!(
         flag.message.starts_with(
-            "The profile notes breastfeeding. Making milk uses energy, often around 500 kcal a day"
+            "While breastfeeding, making milk uses energy, often around 500 kcal a day"
         ),
         "{}",
         flag.message
