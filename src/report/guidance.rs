@@ -52,7 +52,7 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 14] = [
+pub const HOLDING_FLAGS: [&str; 15] = [
     "fast_loss",
     "fast_gain",
     // Clinical only in the period a step in the weigh-ins is first found: it may be a real
@@ -83,6 +83,11 @@ pub const HOLDING_FLAGS: [&str; 14] = [
     // for a clinician soon, and more walking or a new diet is not to be started before
     // (common practice).
     "lab_severe_bp",
+    // An eGFR below 30 mL/min/1.73 m², KDIGO 2012 G4–G5, where the guideline refers to
+    // specialist kidney care, which guides eating (from memory). An eGFR of 30–59
+    // (`lab_low_egfr`) does not hold advice: the same guideline encourages a healthy weight and
+    // activity in kidney disease (from memory), and a caution goes before it.
+    "lab_very_low_egfr",
 ];
 
 /// Whether a BMI lies below a cut-off, by the `outcomes` module's rule for cut points (a value
@@ -670,6 +675,8 @@ struct Facts {
     weigh_ins_target: f64,
     activity_target: f64,
     lab_in_diabetes_range: bool,
+    /// The latest eGFR is 30–59 mL/min/1.73 m² (`lab_low_egfr`: KDIGO 2012 G3a–G3b).
+    lab_low_egfr: bool,
     glucose_lowering: bool,
     /// The day of the last weigh-in when it is [`RECENT_WEIGH_IN_DAYS`] or more before the
     /// period's end: the trend weight is then that day's, not a current one.
@@ -723,6 +730,10 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .clinical_flags
             .iter()
             .any(|c| c == OutcomesFlag::LabDiabetesRange.as_str()),
+        lab_low_egfr: state
+            .clinical_flags
+            .iter()
+            .any(|c| c == OutcomesFlag::LabLowEgfr.as_str()),
         glucose_lowering: data
             .profile
             .flags
@@ -890,6 +901,11 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
     if f.lab_in_diabetes_range {
         cautions.push(
             "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".to_string(),
+        );
+    }
+    if f.lab_low_egfr {
+        cautions.push(
+            "A recent eGFR of yours, an estimate of kidney function, is below 60 (see “Points to note”): please talk to your clinician before acting on anything here.".to_string(),
         );
     }
     if f.glucose_lowering {
@@ -1974,6 +1990,7 @@ mod tests {
             weigh_ins_target: 3.0,
             activity_target: 150.0,
             lab_in_diabetes_range: false,
+            lab_low_egfr: false,
             glucose_lowering: false,
             stale_since: None,
             last_report: false,

@@ -793,7 +793,12 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
                     l.test.label().to_string(),
                     value.trim().to_string(),
                     alt.trim().to_string(),
-                    l.category.as_str().replace('_', " "),
+                    // An eGFR's class is KDIGO's words (`mildly decreased (G2)`), not its code.
+                    if l.test == LabTest::Egfr {
+                        l.category.label().to_string()
+                    } else {
+                        l.category.as_str().replace('_', " ")
+                    },
                 ]
             })
             .collect(),
@@ -802,12 +807,12 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
 
 /// A lab value with the decimals its unit is usually written with, so a column never mixes
 /// `5 %` and `5.1 %`: HbA1c in % and glucose in mmol/L to one decimal, mg/dL, mmol/mol and
-/// mmHg whole, lengths to one decimal (common practice in laboratory reports). A glucose or
+/// mmHg and eGFR whole, lengths to one decimal (common practice in laboratory reports). A glucose or
 /// HbA1c value is never rounded across the cut-off of the range printed beside it
 /// ([`cohortpress_metric_outcomes::lab_shown`]: 6.45 % prints 6.4 beside "prediabetes range").
 fn lab_number(test: LabTest, v: f64, unit: &str) -> String {
     let decimals = match unit {
-        "mg/dL" | "mmol/mol" | "mmHg" => 0,
+        "mg/dL" | "mmol/mol" | "mmHg" | "mL/min/1.73 m²" => 0,
         _ => 1,
     };
     fmt::fixed(
@@ -2557,6 +2562,9 @@ mod activity_unread_tests {
         assert_eq!(lab_number(G, 5.2, "mmol/L"), "5.2");
         assert_eq!(lab_number(SystolicBp, 128.0, "mmHg"), "128");
         assert_eq!(lab_number(DiastolicBp, 79.5, "mmHg"), "80");
+        assert_eq!(lab_number(LabTest::Egfr, 59.4, "mL/min/1.73 m²"), "59");
+        // Not rounded up across KDIGO's cut-off of 60 (G2 from 60).
+        assert_eq!(lab_number(LabTest::Egfr, 59.6, "mL/min/1.73 m²"), "59");
     }
 
     /// Demo, 150 participants, SG-134 with a glucose-lowering medicine, September: HbA1c

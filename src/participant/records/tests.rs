@@ -4003,3 +4003,36 @@ fn a_numeric_date_after_a_withdrawal_in_every_reading_is_not_read() {
     // The rows after the withdrawal are not counted among the file's rows either.
     assert_eq!(c.rows_in_file(), 4);
 }
+
+/// eGFR was "unknown test; the row is dropped" under every name and code: kidney function
+/// never reached a clinician. It is read by its usual names and LOINC codes, in mL/min/1.73 m²
+/// only (`mL/min` alone may be a creatinine clearance, not normalised: unit not accepted).
+#[test]
+fn egfr_is_read_by_name_and_loinc_code_in_ml_min_per_1_73_m2() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,eGFR,59,mL/min/1.73m2\n2026-04-02,62238-1,44,mL/min/1.73 m²\n2026-04-03,98979-8,>90,mL/min/{1.73_m2}\n2026-04-04,Estimated GFR,28,mL/min/1.73m2\n2026-04-05,egfr,58,mL/min\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let got: Vec<(LabTest, f64, Option<Censor>)> =
+        v.iter().map(|l| (l.test, l.value, l.censored)).collect();
+    assert_eq!(
+        got,
+        [
+            (LabTest::Egfr, 59.0, None),
+            (LabTest::Egfr, 44.0, None),
+            (LabTest::Egfr, 90.0, Some(Censor::Above)),
+            (LabTest::Egfr, 28.0, None),
+        ]
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(6));
+    assert!(
+        diags[0].message.contains("unit not accepted for `egfr`"),
+        "{diags:#?}"
+    );
+}
