@@ -51,6 +51,9 @@ pub struct ParticipantReportContext {
     pub labs: Option<TableView>,
     /// How many earlier lab values the table leaves out, in words (`None` when it shows all).
     pub labs_not_shown: Option<String>,
+    /// The footnote under the lab table: the source of the ranges of the tests it lists, each
+    /// named only when a row of that test is listed ([`labs_sources`]).
+    pub labs_sources: Option<String>,
     /// Flags raised by the modules (clinical ones first).
     pub flags: Vec<FlagView>,
     /// Why the figures may not be this participant's at all, shown before them: their
@@ -451,6 +454,7 @@ pub fn build(
         guidance,
         labs: v.outcomes.as_ref().and_then(labs),
         labs_not_shown: v.outcomes.as_ref().and_then(labs_not_shown),
+        labs_sources: v.outcomes.as_ref().and_then(labs_sources),
         flags: flags(results, p.withdrew.filter(|_| p.follow_up_weigh_ins())),
         record_notice: diags
             .iter()
@@ -762,6 +766,55 @@ fn labs_not_shown(o: &OutcomesView) -> Option<String> {
             if left_out == 1 { "one is" } else { "ones are" }
         )
     })
+}
+
+/// The footnote under the lab table: whose ranges each listed test follows, for the tests it
+/// lists only. One sentence ("Ranges follow the American Diabetes Association's Standards of
+/// Care") stood under blood-pressure and waist rows too, which the ADA does not class here.
+fn labs_sources(o: &OutcomesView) -> Option<String> {
+    let shown = labs_shown(o);
+    if shown.is_empty() {
+        return None;
+    }
+    let has = |f: &dyn Fn(LabTest) -> bool| shown.iter().any(|&i| f(o.labs[i].test));
+    let mut parts: Vec<String> = Vec::new();
+    // The outcomes module's sources, as cited there.
+    let glycaemia = match (
+        has(&|t| t == LabTest::FastingGlucose),
+        has(&|t| t == LabTest::Hba1c),
+    ) {
+        (true, true) => Some("Glucose and HbA1c"),
+        (true, false) => Some("Glucose"),
+        (false, true) => Some("HbA1c"),
+        (false, false) => None,
+    };
+    if let Some(tests) = glycaemia {
+        parts.push(format!(
+            "{tests} ranges follow the American Diabetes Association's Standards of Care."
+        ));
+    }
+    if has(&|t| t == LabTest::Waist) {
+        parts.push(
+            "Waist ranges follow the World Health Organization's expert consultation on waist circumference (2008), for men and women separately; without a recorded sex a waist is only recorded."
+                .into(),
+        );
+    }
+    if has(&|t| matches!(t, LabTest::SystolicBp | LabTest::DiastolicBp)) {
+        let (sys, dia) = cohortpress_metric_outcomes::SEVERE_BP_MMHG;
+        parts.push(format!(
+            "Blood pressure is recorded without a range here; a reading above {}/{} mmHg is flagged for a clinician (American College of Cardiology and American Heart Association guideline, 2017).",
+            fmt::int(sys),
+            fmt::int(dia)
+        ));
+    }
+    if has(&|t| t == LabTest::Egfr) {
+        parts.push(
+            "eGFR categories (G1 to G5) follow the KDIGO 2012 guideline on chronic kidney disease."
+                .into(),
+        );
+    }
+    parts.push("A value in a range is not a diagnosis; your clinician interprets it.".into());
+    Some(parts.join(" "))
 }
 
 /// Lab values with their ranges, when there are any (the latest ones: [`labs_shown`]).
