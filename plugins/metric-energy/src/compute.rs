@@ -1315,22 +1315,44 @@ fn forecast(
     }
     let h_m = p.height_cm / 100.0;
     let under_kg = UNDERWEIGHT_BMI * h_m * h_m;
-    let underweight = cur.implied.filter(|_| cur.bw >= under_kg).and_then(|i| {
-        let crosses = points
-            .iter()
-            .find(|pt| pt.value < under_kg)
-            .map(|pt| pt.date);
-        let rest = p
-            .model
-            .steady_state_weight(i.value, cur.met_h_window)
-            .filter(|w| *w < under_kg);
-        (crosses.is_some() || rest.is_some()).then_some((crosses, rest))
-    });
     // Still falling: the window's slope, its whole 95 % interval below zero (as the outcomes
     // module's low-BMI test reads the trend).
     let still_falling = cur
         .slope
         .is_some_and(|sl| sl.value < 0.0 && sl.upper.is_some_and(|u| u < 0.0));
+    // How far below BMI 18.5 the central path (or the steady state) must go to be called
+    // heading there: while the trend is falling, any distance (the fall is real, and the
+    // crossing is where it leads); otherwise farther than the current trend weight's own 95 %
+    // half-width, so that a weight steady on the line, whose path drifts a few grams under it
+    // with a slope that cannot be told from zero, is not sent to a clinician. A woman of 1.60 m
+    // steady at 47.4 kg (BMI 18.52, 0.04 kg above the line) read "the model expects weight to
+    // fall below a BMI of 18.5 around 4 August 2026" (trend 47.38 kg, 47.29–47.46; the path
+    // went 0.02 kg under the line, less than the 0.08 kg half-width). Program choice: the
+    // trend's own uncertainty as the margin, as the forecast's band carries it (`level_half`).
+    // The date named is still that of the crossing of 18.5 itself; no estimate moves.
+    let margin = if still_falling { 0.0 } else { level_half };
+    let underweight = cur.implied.filter(|_| cur.bw >= under_kg).and_then(|i| {
+        let heads_under = points.iter().any(|pt| pt.value < under_kg - margin);
+        let crosses = points
+            .iter()
+            .find(|pt| pt.value < under_kg)
+            .map(|pt| pt.date)
+            .filter(|_| heads_under);
+        // The steady state, likewise: below the line at its central value while the trend
+        // falls, otherwise only when its whole 95 % interval is (the same interval the
+        // `steady_state_weight_kg` output gives: the current energy balance's uncertainty).
+        // The woman above read "the model expects weight to settle in the end at about 47 kg
+        // (104 lb), a BMI below 18.5" from a steady state of 47.27 kg (46.92–47.62).
+        let settles_under = still_falling
+            || p.model
+                .steady_state_weight(i.value + Z_95 * cur.balance_sd, cur.met_h_window)
+                .is_some_and(|upper| upper < under_kg);
+        let rest = p
+            .model
+            .steady_state_weight(i.value, cur.met_h_window)
+            .filter(|w| *w < under_kg && settles_under);
+        (crosses.is_some() || rest.is_some()).then_some((crosses, rest))
+    });
     let falls_further = cur
         .implied
         .filter(|_| cur.bw < under_kg)

@@ -1739,6 +1739,64 @@ fn a_sex_not_recorded_takes_the_mean_equation_a_wider_interval_and_the_higher_fl
     );
 }
 
+/// A woman of 1.60 m steady at 47.4 kg (BMI 18.52, BMI 18.5 is 47.36 kg), her trend drifting
+/// down by a slope that cannot be told from zero, was sent to a clinician: "the model expects
+/// weight to fall below a BMI of 18.5 around …", as the central path started 0.04 kg above the
+/// line. A path that goes under the line by less than the trend's own 95 % half-width, with a
+/// trend that is not falling, now raises nothing, nor does a steady state whose interval
+/// reaches above the line; a weight really heading under (falling, or a path well under the
+/// line) is still flagged. No estimate moves.
+#[test]
+fn a_steady_weight_on_the_underweight_line_is_not_flagged_but_one_heading_under_is() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let under = 18.5 * 1.6 * 1.6;
+    let run_with = |start: f64, per_week: f64, level_hw: f64, slope_hw: f64| {
+        let weights: Vec<f64> = (0..n).map(|i| start - per_week * i as f64 / 7.0).collect();
+        let mut data = data(profile(Sex::Female, 160.0, 45.0, enrolled));
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, level_hw, slope_hw, &[]),
+        );
+        let out = EnergyModule.compute(&c, &data).unwrap();
+        let flag = out
+            .flags
+            .iter()
+            .find(|f| f.code == "forecast_underweight")
+            .map(|f| (f.severity, f.message.clone()));
+        (out, flag)
+    };
+    // Steady on the line: 47.40 → about 47.36 kg over the 12 weeks (−0.003 kg a week, its
+    // interval ±0.01 kg a week), trend level ±0.08 kg.
+    let (out, flag) = run_with(47.40, 0.003, 0.08, 0.0015);
+    let end = out.scalar("forecast_weight_at_end_kg").unwrap();
+    // The central path does go under the line (the estimate is as before) …
+    assert!(end < under && end > under - 0.08, "{end} vs {under}");
+    // … but by less than the trend's own uncertainty: no flag, neither for a clinician nor a
+    // notice of a steady state below the line.
+    assert_eq!(flag, None);
+    // Heading under: 52 kg losing 0.3 kg a week, 48.3 kg at the period's end (interval ±0.035 kg
+    // a week: falling).
+    let (_, flag) = run_with(52.0, 0.3, 0.08, 0.005);
+    let (severity, message) = flag.expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(message.contains("below a BMI of 18.5 around"), "{message}");
+    // A slope that cannot be told from zero (±0.35 kg a week) but a path that goes under the
+    // line by more than the trend's half-width (48.2 kg at the period's end losing 0.1 kg a
+    // week, about 1 kg lower by the end of June): flagged.
+    let (out, flag) = run_with(48.2 + 0.1 * n as f64 / 7.0, 0.1, 0.08, 0.05);
+    let end = out.scalar("forecast_weight_at_end_kg").unwrap();
+    assert!(end < under - 0.1, "{end}");
+    let (severity, _) = flag.expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical);
+}
+
 /// Someone already underweight whose weight is still falling gets the forecast flag however
 /// short the forecast's horizon. The flag needed a forecast fall of 1 kg, a total over the
 /// horizon: in a program's last month with `forecast_min_days: 28`, a woman at BMI 17.6 losing
