@@ -340,7 +340,14 @@ pub struct Columns {
     /// Scalar columns holding a value or bound that is not a whole number: never typed
     /// `integer`, whatever the module declares.
     not_whole: BTreeSet<(String, String)>,
+    /// The distinct non-empty values written in each text column, up to
+    /// [`MAX_CODES_OBSERVED`]; `None` beyond that (free text, not a list of codes).
+    text_values: BTreeMap<(String, String), Option<BTreeSet<String>>>,
 }
+
+/// Distinct values of a text column kept to compare with its declared codes: more than this
+/// is not a column of codes, and the set stops growing.
+const MAX_CODES_OBSERVED: usize = 64;
 
 impl Columns {
     /// An empty set for modules that run in the order `modules`.
@@ -381,6 +388,20 @@ impl Columns {
             if !tx.value.is_empty() && !is_iso_day(&tx.value) {
                 self.not_dates.insert((m.clone(), tx.name.clone()));
             }
+            if !tx.value.is_empty() {
+                let seen = self
+                    .text_values
+                    .entry((m.clone(), tx.name.clone()))
+                    .or_insert_with(|| Some(BTreeSet::new()));
+                if let Some(set) = seen {
+                    if !set.contains(&tx.value) {
+                        set.insert(tx.value.clone());
+                    }
+                    if set.len() > MAX_CODES_OBSERVED {
+                        *seen = None;
+                    }
+                }
+            }
         }
     }
 }
@@ -404,6 +425,36 @@ fn is_iso_day(s: &str) -> bool {
 const MAX_EXACT_INTEGER: f64 = 9_007_199_254_740_992.0;
 
 impl Columns {
+    /// The codes a text column (module, name) may take, for its `enum` constraint: the codes
+    /// its module declares ([`cohortpress_metric_api::OutputSpec::codes`]), when every value
+    /// written is one of them. `None` for a column without declared codes, or one holding a
+    /// value outside them (an external module's output that breaks its declaration is
+    /// described as free text rather than with a constraint its own values fail).
+    pub fn codes(
+        &self,
+        specs: &[cohortpress_metric_api::ModuleSpec],
+        module: &str,
+        name: &str,
+    ) -> Option<Vec<String>> {
+        let declared = &specs
+            .iter()
+            .find(|s| s.id == module)?
+            .outputs
+            .iter()
+            .find(|o| o.name == name)?
+            .codes;
+        if declared.is_empty() {
+            return None;
+        }
+        let key = (module.to_owned(), name.to_owned());
+        let fits = match self.text_values.get(&key) {
+            None => true,
+            Some(None) => false,
+            Some(Some(seen)) => seen.iter().all(|v| declared.contains(v)),
+        };
+        fits.then(|| declared.clone())
+    }
+
     /// The scalar columns (module, name) typed `integer`: declared counts
     /// ([`cohortpress_metric_api::OutputSpec::whole`]) whose every value written is whole.
     pub fn integers(
@@ -724,7 +775,7 @@ pub fn datapackage(
         DpField {
             constraints: Some(DpConstraints {
                 // ICH E9(R1) (2019), treatment-policy strategy; CONSORT 2010 flow diagram.
-                r#enum: Some(vec!["consent", "stopped_program"]),
+                r#enum: Some(vec!["consent".into(), "stopped_program".into()]),
                 ..Default::default()
             }),
             ..DpField::new(
@@ -780,7 +831,14 @@ pub fn datapackage(
                 .and_then(|s| s.outputs.iter().find(|o| o.name == *n))
                 .is_some_and(|o| o.unit == "date");
         let ty = if is_date { "date" } else { "string" };
-        fields.push(DpField::new(format!("{m}.{n}"), ty, declared(m, n)));
+        let mut field = DpField::new(format!("{m}.{n}"), ty, declared(m, n));
+        if let Some(codes) = columns.codes(specs, m, n) {
+            field.constraints = Some(DpConstraints {
+                r#enum: Some(codes),
+                ..Default::default()
+            });
+        }
+        fields.push(field);
     }
     fields.push(DpField::new(
         "clinical_flags",
@@ -956,7 +1014,7 @@ pub fn datapackage(
                 DpField {
                     constraints: Some(DpConstraints {
                         required: Some(true),
-                        r#enum: Some(vec!["error", "warning"]),
+                        r#enum: Some(vec!["error".into(), "warning".into()]),
                         ..Default::default()
                     }),
                     ..DpField::new(
@@ -1218,13 +1276,75 @@ struct DpConstraints {
     #[serde(skip_serializing_if = "Option::is_none")]
     minimum: Option<i64>,
     #[serde(rename = "enum", skip_serializing_if = "Option::is_none")]
-    r#enum: Option<Vec<&'static str>>,
+    r#enum: Option<Vec<String>>,
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
     use cohortpress_metric_api::TextValue;
+
+    /// A text column gets its declared codes as an `enum` constraint only while every value
+    /// written is one of them: an external module that writes a code it did not declare gets
+    /// a column described as free text, not a constraint its own file fails.
+    #[test]
+    fn declared_codes_become_an_enum_only_when_every_value_is_one_of_them() {
+        use cohortpress_metric_api::{ModuleSpec, OutputSpec};
+        let spec = ModuleSpec {
+            id: "ext".into(),
+            version: "1.0.0".into(),
+            description: String::new(),
+            settings: vec![],
+            outputs: vec![
+                OutputSpec {
+                    codes: vec!["up".into(), "down".into()],
+                    ..OutputSpec::new("dir", "text", "", "direction")
+                },
+                OutputSpec::new("note", "text", "", "free text"),
+            ],
+            requires: vec![],
+        };
+        let specs = [spec];
+        let person = |dir: &str| TidyParticipant {
+            participant_id: "XP-01".into(),
+            enrolled: "2027-03-01".into(),
+            withdrew: None,
+            withdrawal_reason: None,
+            started: true,
+            completer: true,
+            groups: BTreeMap::new(),
+            scalars: vec![],
+            texts: vec![(
+                "ext".into(),
+                TextValue {
+                    name: "dir".into(),
+                    value: dir.into(),
+                    label: String::new(),
+                },
+            )],
+            weekly_rows: vec![],
+            table_rows: vec![],
+            flags: vec![],
+            flags_at_follow_up: vec![],
+            failures: vec![],
+            weights_rows_in_file: None,
+            weights_rows_used: None,
+            intake_rows_in_file: None,
+            intake_rows_used: None,
+            activity_rows_in_file: None,
+            activity_rows_used: None,
+        };
+        let mut columns = Columns::new(vec!["ext".into()]);
+        columns.observe(&person("up"));
+        columns.observe(&person(""));
+        assert_eq!(
+            columns.codes(&specs, "ext", "dir"),
+            Some(vec!["up".to_string(), "down".to_string()])
+        );
+        assert_eq!(columns.codes(&specs, "ext", "note"), None);
+        columns.observe(&person("sideways"));
+        assert_eq!(columns.codes(&specs, "ext", "dir"), None);
+    }
 
     /// Before: an external module's text output declared with the unit `date` was typed `date`
     /// in datapackage.json when one participant's value was `2027-3-1` or `+2027-03-01`

@@ -79,6 +79,7 @@ impl MetricModule for TestModule {
                 unit: String::new(),
                 description: "weigh-ins".into(),
                 whole: true,
+                codes: Vec::new(),
             }],
             requires: self.requires.clone(),
         }

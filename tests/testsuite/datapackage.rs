@@ -513,6 +513,81 @@ fn each_code_column_names_its_codes() {
     }
 }
 
+/// A text column of codes carries the Table Schema `enum` constraint with every code its module
+/// can write (Frictionless Table Schema, `constraints.enum`), so a reader that validates the
+/// files refuses a value outside them; before, the codes were named only in the description.
+/// Free text (the resting-energy equation is a code too; the plateau onset is a day) is
+/// constrained only where it is a list of codes.
+#[test]
+fn each_code_column_lists_its_codes_as_an_enum_constraint() {
+    let metrics = sample_metrics();
+    let package = read_json(&metrics.join("datapackage.json"));
+    let fields = package["resources"][0]["schema"]["fields"]
+        .as_array()
+        .unwrap()
+        .clone();
+    let codes_of = |name: &str| -> Option<Vec<String>> {
+        let f = fields.iter().find(|f| f["name"] == name).unwrap();
+        f["constraints"]["enum"]
+            .as_array()
+            .map(|e| e.iter().map(|v| v.as_str().unwrap().to_string()).collect())
+    };
+    let list = |codes: &[&str]| Some(codes.iter().map(|c| c.to_string()).collect::<Vec<_>>());
+    assert_eq!(
+        codes_of("trend.status"),
+        list(&[
+            "losing",
+            "plateau",
+            "regaining",
+            "stable",
+            "unclear",
+            "insufficient_data"
+        ])
+    );
+    assert_eq!(
+        codes_of("trend.regain_verdict"),
+        list(&[
+            "regaining",
+            "not_regaining",
+            "no_prior_loss",
+            "insufficient_data"
+        ])
+    );
+    assert_eq!(
+        codes_of("outcomes.current_weight_source"),
+        list(&["trend", "weigh_ins"])
+    );
+    assert_eq!(
+        codes_of("energy.body_fat_source"),
+        list(&["measured", "jackson_2002", "none"])
+    );
+    for name in [
+        "outcomes.bmi_category_baseline",
+        "outcomes.bmi_category_current",
+    ] {
+        assert_eq!(
+            codes_of(name),
+            list(&[
+                "underweight",
+                "normal",
+                "overweight",
+                "obesity_class_1",
+                "obesity_class_2",
+                "obesity_class_3"
+            ]),
+            "{name}"
+        );
+    }
+    assert_eq!(
+        codes_of("outcomes.weight_change_category").unwrap().len(),
+        6
+    );
+    assert!(codes_of("energy.rmr_equation").is_some());
+    assert_eq!(codes_of("trend.plateau_onset"), None);
+    // And every value written is among them (the checker reads `enum`).
+    assert_eq!(check_package(metrics), Vec::<String>::new());
+}
+
 /// Counts are typed `integer` and written as whole numbers in both tidy files: a researcher's
 /// reader took `trend.weigh_ins_used` (typed `number`) as a float, and `participants.json` held
 /// `38.0`. Measures that are not counts stay `number`.

@@ -229,6 +229,12 @@ pub struct OutputSpec {
     /// value written is whole. Absent (false) for modules that do not say.
     #[serde(default, skip_serializing_if = "std::ops::Not::not")]
     pub whole: bool,
+    /// A text output whose values are codes from a fixed list (a status, a class): the codes.
+    /// The tidy metrics' descriptor lists them as the column's allowed values (Table Schema
+    /// `enum` constraint) as long as every value written is one of them. Empty for free text
+    /// and for modules that do not say.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub codes: Vec<String>,
 }
 
 impl OutputSpec {
@@ -240,12 +246,19 @@ impl OutputSpec {
             unit: unit.into(),
             description: description.into(),
             whole: false,
+            codes: Vec::new(),
         }
     }
 
     /// The same output, declared a count: its values are whole numbers ([`OutputSpec::whole`]).
     pub fn counted(mut self) -> Self {
         self.whole = true;
+        self
+    }
+
+    /// The same text output, declared to take only the codes of `C` ([`OutputSpec::codes`]).
+    pub fn coded<C: view::Code>(mut self) -> Self {
+        self.codes = C::all().iter().map(|c| c.code().to_owned()).collect();
         self
     }
 }

@@ -286,13 +286,15 @@ impl MetricModule for EnergyModule {
                 "%",
                 "The person's own under-reporting share, estimated from every four weeks of food logs and weight trend since enrolment together (without four weeks of logs, 100·(1 − logged/implied) over the last window); not this period's difference, which is intake_gap_kcal_per_day; 95 % interval",
             ),
-            OutputSpec::new("rmr_equation", "text", "", "Resting energy equation used"),
+            OutputSpec::new("rmr_equation", "text", "", "Resting energy equation used")
+                .coded::<RestingEquation>(),
             OutputSpec::new(
                 "body_fat_source",
                 "text",
                 "",
                 "`measured` or the equation that estimated it",
-            ),
+            )
+            .coded::<view::BodyFatSource>(),
             OutputSpec::new(
                 "forecast_weight",
                 "series",

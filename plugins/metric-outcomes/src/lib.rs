@@ -827,13 +827,15 @@ impl MetricModule for OutcomesModule {
                     "text",
                     "",
                     &format!("WHO BMI class at baseline: {}", codes::<BmiCategory>()),
-                ),
+                )
+                .coded::<BmiCategory>(),
                 OutputSpec::new(
                     names::BMI_CATEGORY_CURRENT,
                     "text",
                     "",
                     &format!("WHO BMI class now: {}", codes::<BmiCategory>()),
-                ),
+                )
+                .coded::<BmiCategory>(),
                 OutputSpec::new(
                     names::WEIGHT_CHANGE_CATEGORY,
                     "text",
@@ -842,13 +844,15 @@ impl MetricModule for OutcomesModule {
                         "weight-change category, % of baseline: {}",
                         codes::<WeightChangeCategory>()
                     ),
-                ),
+                )
+                .coded::<WeightChangeCategory>(),
                 OutputSpec::new(
                     names::CURRENT_WEIGHT_SOURCE,
                     "text",
                     "",
                     "`trend` or `weigh_ins`",
-                ),
+                )
+                .coded::<CurrentWeightSource>(),
                 OutputSpec::new(
                     names::MILESTONES,
                     "table",

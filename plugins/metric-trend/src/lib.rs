@@ -256,7 +256,8 @@ impl MetricModule for TrendModule {
                     "",
                     "regaining, not_regaining, no_prior_loss or insufficient_data (no trend, \
                      or too few recent weigh-ins to say; docs/METHODS.md, Regain)",
-                ),
+                )
+                .coded::<RegainVerdict>(),
                 OutputSpec::new(
                     "source_offsets",
                     "table",
@@ -319,7 +320,8 @@ impl MetricModule for TrendModule {
                     "text",
                     "",
                     "losing, plateau, regaining, stable, unclear or insufficient_data",
-                ),
+                )
+                .coded::<Status>(),
                 OutputSpec::new(
                     TrendFlag::InsufficientData.as_str(),
                     "flag",
