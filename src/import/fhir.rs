@@ -33,8 +33,8 @@ use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 pub use crate::participant::loinc::{
-    BODY_HEIGHT, BODY_WEIGHT, BODY_WEIGHT_MEASURED, BP_PANEL, DIASTOLIC, FASTING_GLUCOSE_MASS,
-    FASTING_GLUCOSE_MOLES, HBA1C, HBA1C_IFCC, LOINC, SYSTOLIC, WAIST,
+    BODY_HEIGHT, BODY_WEIGHT, BODY_WEIGHT_MEASURED, BP_PANEL, DIASTOLIC, EGFR,
+    FASTING_GLUCOSE_MASS, FASTING_GLUCOSE_MOLES, HBA1C, HBA1C_IFCC, LOINC, SYSTOLIC, WAIST,
 };
 
 /// What was read for one patient.
@@ -310,7 +310,8 @@ impl Imported {
             FASTING_GLUCOSE_MASS,
             FASTING_GLUCOSE_MOLES,
         ];
-        let Some(&code) = cs.iter().find(|c| known.contains(c)) else {
+        // eGFR's codes by formula (`loinc::EGFR`), read as labs.csv's `egfr`.
+        let Some(&code) = cs.iter().find(|c| known.contains(c) || EGFR.contains(c)) else {
             self.skipped += 1;
             return;
         };
@@ -481,6 +482,16 @@ impl Imported {
                     return;
                 }
             }
+            // eGFR is per 1.73 m² (UCUM `mL/min/{1.73_m2}`); `mL/min` alone may be a creatinine
+            // clearance, not normalised, and is not read as one.
+            c if EGFR.contains(&c) => match q {
+                Some((v, "mL/min/{1.73_m2}" | "mL/min/1.73m2" | "mL/min/1.73_m2")) => self
+                    .patient(&patient)
+                    .labs
+                    .push((when.clone(), "egfr", v, "mL/min/1.73m2", bound)),
+                Some((_, u)) => return bad_unit(self, u),
+                None => return no_quantity(self),
+            },
             _ => unreachable!("only known codes reach here"),
         }
         self.observations += 1;
@@ -1097,6 +1108,7 @@ mod tests {
                 obs("wc", WAIST, "2027-03-02", ucum(36.5, "[in_i]")),
                 obs("st", BODY_WEIGHT, "2027-03-09", ucum(13.0, "[stone_av]")),
                 obs("hr", "8867-4", "2027-03-02", ucum(64.0, "/min")),
+                obs("gf", "62238-1", "2027-03-02", ucum(52.0, "mL/min/{1.73_m2}")),
                 wrong
             ]
         })
@@ -1106,7 +1118,8 @@ mod tests {
     fn a_bundle_gives_profile_weights_and_labs() {
         let mut imp = Imported::default();
         imp.add(&bundle(), &BTreeMap::new(), "b.json");
-        assert_eq!(imp.observations, 7);
+        // eGFR (62238-1) is read, as labs.csv's `egfr`: it was skipped as a code not read.
+        assert_eq!(imp.observations, 8);
         // Heart rate (not read), stone (unit not read), entered-in-error.
         assert_eq!(imp.skipped, 3);
         assert_eq!(imp.problems.len(), 1, "{:?}", imp.problems);
@@ -1127,7 +1140,7 @@ mod tests {
         );
         assert_eq!(
             get("labs.csv"),
-            "date,test,value,unit\n2027-03-02,diastolic_bp,82,mmHg\n2027-03-02,fasting_glucose,101,mg/dL\n2027-03-02,hba1c,5.9,%\n2027-03-02,systolic_bp,128,mmHg\n2027-03-02,waist,36.5,in\n"
+            "date,test,value,unit\n2027-03-02,diastolic_bp,82,mmHg\n2027-03-02,egfr,52,mL/min/1.73m2\n2027-03-02,fasting_glucose,101,mg/dL\n2027-03-02,hba1c,5.9,%\n2027-03-02,systolic_bp,128,mmHg\n2027-03-02,waist,36.5,in\n"
         );
     }
 

@@ -16,6 +16,11 @@
 //!   listings (1558-6).
 //! - 59261-8 Hemoglobin A1c/Hemoglobin.total in Blood by IFCC protocol (mmol/mol) — from a
 //!   LOINC code listing (third-party), marked here as not confirmed in HL7 material.
+//! - Glomerular filtration rate/1.73 sq M.predicted (eGFR, mL/min/1.73 m²): 33914-3 (by the
+//!   MDRD formula), 62238-1 (CKD-EPI), 98979-8 (CKD-EPI 2021, without race), 48642-3 and
+//!   48643-1 (the race-specific MDRD results), 88293-6 and 88294-4 (the race-specific CKD-EPI
+//!   results) — from LOINC code listings and laboratory code tables (third-party), not
+//!   confirmed in HL7 material.
 
 /// LOINC system URI.
 pub const LOINC: &str = "http://loinc.org";
@@ -41,3 +46,8 @@ pub const HBA1C_IFCC: &str = "59261-8";
 pub const FASTING_GLUCOSE_MASS: &str = "1558-6";
 /// Fasting glucose, moles per volume.
 pub const FASTING_GLUCOSE_MOLES: &str = "14771-0";
+/// eGFR by creatinine, each formula's code (see the module documentation); not confirmed in
+/// HL7 material.
+pub const EGFR: [&str; 7] = [
+    "33914-3", "62238-1", "98979-8", "48642-3", "48643-1", "88293-6", "88294-4",
+];

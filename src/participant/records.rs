@@ -2662,6 +2662,13 @@ fn lab_unit(test: LabTest, unit: &str) -> Option<fn(f64) -> f64> {
         (LabTest::Waist, "cm") => |v| v,
         (LabTest::Waist, "in" | "inch" | "inches" | "[in_i]") => |v| v * CM_PER_IN,
         (LabTest::SystolicBp | LabTest::DiastolicBp, "mmhg") => |v| v,
+        // eGFR is per 1.73 m² of body surface by definition (KDIGO 2012); `mL/min` alone may
+        // be a creatinine clearance, not normalised, and is not read as one.
+        (
+            LabTest::Egfr,
+            "ml/min/1.73m2" | "ml/min/1.73m²" | "ml/min/1.73m^2" | "ml/min/{1.73_m2}"
+            | "ml/min/1.73sqm" | "ml/min/1.73_m2" | "ml/min/1.73m*2",
+        ) => |v| v,
         _ => return None,
     })
 }
@@ -2679,6 +2686,7 @@ fn lab_units_by_magnitude(test: LabTest, text: &str) -> Vec<&'static str> {
         LabTest::Hba1c => &["%", "mmol/mol"],
         LabTest::Waist => &["cm", "in"],
         LabTest::SystolicBp | LabTest::DiastolicBp => &["mmHg"],
+        LabTest::Egfr => &["mL/min/1.73m2"],
     };
     let (lo, hi) = lab_range(test);
     units
@@ -2694,6 +2702,7 @@ fn lab_units_text(test: LabTest) -> &'static str {
         LabTest::Hba1c => "`%` or `mmol/mol`",
         LabTest::Waist => "`cm` or `in`",
         LabTest::SystolicBp | LabTest::DiastolicBp => "`mmHg`",
+        LabTest::Egfr => "`mL/min/1.73m2`",
     }
 }
 
@@ -2706,6 +2715,7 @@ fn lab_range(test: LabTest) -> (f64, f64) {
         LabTest::Waist => (40.0, 250.0),
         LabTest::SystolicBp => (60.0, 280.0),
         LabTest::DiastolicBp => (30.0, 180.0),
+        LabTest::Egfr => (1.0, 200.0),
     }
 }
 
@@ -2729,6 +2739,7 @@ fn lab_name(name: &str) -> Option<LabName> {
         loinc::SYSTOLIC => Some(LabName::One(LabTest::SystolicBp)),
         loinc::DIASTOLIC => Some(LabName::One(LabTest::DiastolicBp)),
         loinc::BP_PANEL => Some(LabName::BloodPressure),
+        code if loinc::EGFR.contains(&code) => Some(LabName::One(LabTest::Egfr)),
         _ => None,
     };
     if by_code.is_some() {
@@ -2763,6 +2774,15 @@ fn lab_name(name: &str) -> Option<LabName> {
             LabName::One(LabTest::DiastolicBp)
         }
         "blood_pressure" | "bp" | "bloodpressure" => LabName::BloodPressure,
+        "egfr"
+        | "e_gfr"
+        | "gfr"
+        | "estimated_gfr"
+        | "gfr_estimated"
+        | "egfr_ckd_epi"
+        | "egfr_mdrd"
+        | "estimated_glomerular_filtration_rate"
+        | "glomerular_filtration_rate" => LabName::One(LabTest::Egfr),
         _ => return None,
     })
 }
@@ -2824,26 +2844,20 @@ pub fn parse_labs(
         let Some(kind) = lab_name(&name) else {
             d.push(
                 c.warn("test", "unknown test; the row is dropped")
-                    .expected("one of fasting_glucose, hba1c, waist, systolic_bp, diastolic_bp, blood_pressure (usual spellings such as HbA1c, A1c, FPG, SBP/DBP, and LOINC codes such as 4548-4, are read too)")
+                    .expected("one of fasting_glucose, hba1c, waist, systolic_bp, diastolic_bp, blood_pressure, egfr (usual spellings such as HbA1c, A1c, FPG, SBP/DBP, eGFR, and LOINC codes such as 4548-4, are read too)")
                     .found(format!("`{name}`")),
             );
             return None;
         };
         let raw = c.required_text("value", d)?;
         // `>14.0`, `> 14.0 %`, `>=14`, `<5.0`: a value beyond the assay's range, read as the
-        // bound it is (`censored`), not as the number.
+        // bound it is (`censored`), not as the number. A bound before a blood-pressure pair
+        // (`>180/110`, as a monitor past its range or a record of a crisis writes it) bounds
+        // both numbers, as it would each on a row of its own: systolic above 180, diastolic
+        // above 110. It was dropped with a warning, and with it the severe-pressure flag on the
+        // one reading most likely to need it; the flag reads each bound on its safe side
+        // (`> 180` is above 180, `> 110` not known to be above 120).
         let (censored, value_text) = split_censor(&raw);
-        if censored.is_some() && kind == LabName::BloodPressure {
-            d.push(
-                c.warn(
-                    "value",
-                    "a bound (`>` or `<`) is not read for a blood pressure pair; the row is dropped",
-                )
-                .expected("systolic/diastolic, e.g. `128/82`, or each on a row of its own")
-                .found(format!("`{raw}`")),
-            );
-            return None;
-        }
         let (num_text, unit_in_value) = split_value_unit(value_text);
         let unit = c
             .text("unit")

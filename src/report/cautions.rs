@@ -63,6 +63,8 @@ pub enum Clause {
     LowGlucose,
     /// Severe high blood pressure.
     SevereBp,
+    /// An eGFR below 60 (kidney function).
+    LowEgfr,
     /// A medicine for blood sugar (its own sentence).
     Medication,
     /// A pregnancy (its own sentence).
@@ -73,7 +75,7 @@ pub enum Clause {
 
 impl Clause {
     /// Every clause, in the order the box prints them.
-    pub const ALL: [Clause; 11] = [
+    pub const ALL: [Clause; 12] = [
         Clause::LowIntake,
         Clause::BelowResting,
         Clause::FastChange,
@@ -82,6 +84,7 @@ impl Clause {
         Clause::HighGlucose,
         Clause::LowGlucose,
         Clause::SevereBp,
+        Clause::LowEgfr,
         Clause::Medication,
         Clause::Pregnancy,
         Clause::Breastfeeding,
@@ -134,6 +137,12 @@ impl Clause {
                     super::format::int(dia)
                 )
             }
+            // The `outcomes` module's line (KDIGO 2012 G3a and below; from memory, as cited
+            // there).
+            Clause::LowEgfr => format!(
+                "an eGFR (an estimate of kidney function) below {}",
+                super::format::int(cohortpress_metric_outcomes::LOW_EGFR)
+            ),
             Clause::Medication | Clause::Pregnancy | Clause::Breastfeeding => return None,
         })
     }
@@ -221,7 +230,7 @@ pub struct ClinicalFlag {
 /// BMI, lab values in the diabetes range") while a low fasting glucose, a fast rise, a step in
 /// the weigh-ins and eight more were counted too. The participant's cautions name each by its
 /// [`Clause`], so the two lists cannot drift apart.
-pub const CLINICAL_FLAGS: [ClinicalFlag; 15] = [
+pub const CLINICAL_FLAGS: [ClinicalFlag; 17] = [
     ClinicalFlag {
         code: "very_low_intake",
         group: "a very low logged intake",
@@ -281,6 +290,16 @@ pub const CLINICAL_FLAGS: [ClinicalFlag; 15] = [
         code: "lab_severe_bp",
         group: "a blood pressure above 180/120 mmHg",
         clause: Clause::SevereBp,
+    },
+    ClinicalFlag {
+        code: "lab_low_egfr",
+        group: "an eGFR below 60 (kidney function)",
+        clause: Clause::LowEgfr,
+    },
+    ClinicalFlag {
+        code: "lab_very_low_egfr",
+        group: "an eGFR below 30 (kidney function)",
+        clause: Clause::LowEgfr,
     },
     ClinicalFlag {
         code: "medication_review",
@@ -362,7 +381,7 @@ mod tests {
         let text = participant(&t)[2].clone();
         assert_eq!(
             text,
-            "Very low intakes (below about 1,200 kcal a day for women or 1,500 for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about 1 kg (2 lb) a week for several weeks, a sudden jump in your weigh-ins, a BMI under 18.5 (or under 20 while still losing; 22 from age 70), lab values in the prediabetes or diabetes range, a fasting glucose below 70 mg/dL (3.9 mmol/L), and a blood pressure above 180/120 mmHg should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy. If you are breastfeeding, they do not apply either: making milk takes energy these figures do not count, and your clinician or midwife guides eating then."
+            "Very low intakes (below about 1,200 kcal a day for women or 1,500 for men), eating less than your body uses at rest for weeks on end, losing or gaining more than about 1 kg (2 lb) a week for several weeks, a sudden jump in your weigh-ins, a BMI under 18.5 (or under 20 while still losing; 22 from age 70), lab values in the prediabetes or diabetes range, a fasting glucose below 70 mg/dL (3.9 mmol/L), a blood pressure above 180/120 mmHg, and an eGFR (an estimate of kidney function) below 60 should be reviewed with a licensed clinician. If you take medication for blood sugar or blood pressure, talk to your clinician before changing how you eat or exercise. If you are pregnant, the suggestions here do not apply: your clinician or midwife guides weight and eating in pregnancy. If you are breastfeeding, they do not apply either: making milk takes energy these figures do not count, and your clinician or midwife guides eating then."
         );
         for f in CLINICAL_FLAGS {
             let said = match (f.clause.words(&t), f.clause.sentence()) {

@@ -111,6 +111,12 @@ pub fn reason(code: &str) -> &'static str {
         "lab_severe_bp" => {
             "Latest blood pressure above 180/120 mmHg, severe high blood pressure (ACC/AHA 2017): to be checked soon"
         }
+        "lab_low_egfr" => {
+            "Latest eGFR below 60 mL/min/1.73 m², kidney function in KDIGO 2012 category G3a or G3b"
+        }
+        "lab_very_low_egfr" => {
+            "Latest eGFR below 30 mL/min/1.73 m², kidney function in KDIGO 2012 category G4 or G5: the report makes no suggestions for change"
+        }
         "medication_review" => {
             "Takes a glucose-lowering medicine while losing fast, eating little or with a low fasting glucose: the dose may need review"
         }

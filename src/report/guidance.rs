@@ -52,7 +52,7 @@ const MIN_STEP: f64 = 5.0;
 
 /// Clinical flags after which the report gives no suggestion until a clinician has looked at
 /// them: more loss, or eating less, could do harm.
-pub const HOLDING_FLAGS: [&str; 14] = [
+pub const HOLDING_FLAGS: [&str; 15] = [
     "fast_loss",
     "fast_gain",
     // Clinical only in the period a step in the weigh-ins is first found: it may be a real
@@ -83,6 +83,11 @@ pub const HOLDING_FLAGS: [&str; 14] = [
     // for a clinician soon, and more walking or a new diet is not to be started before
     // (common practice).
     "lab_severe_bp",
+    // An eGFR below 30 mL/min/1.73 m², KDIGO 2012 G4–G5, where the guideline refers to
+    // specialist kidney care, which guides eating (from memory). An eGFR of 30–59
+    // (`lab_low_egfr`) does not hold advice: the same guideline encourages a healthy weight and
+    // activity in kidney disease (from memory), and a caution goes before it.
+    "lab_very_low_egfr",
 ];
 
 /// Whether a BMI lies below a cut-off, by the `outcomes` module's rule for cut points (a value
@@ -670,6 +675,8 @@ struct Facts {
     weigh_ins_target: f64,
     activity_target: f64,
     lab_in_diabetes_range: bool,
+    /// The latest eGFR is 30–59 mL/min/1.73 m² (`lab_low_egfr`: KDIGO 2012 G3a–G3b).
+    lab_low_egfr: bool,
     glucose_lowering: bool,
     /// The day of the last weigh-in when it is [`RECENT_WEIGH_IN_DAYS`] or more before the
     /// period's end: the trend weight is then that day's, not a current one.
@@ -723,6 +730,10 @@ pub fn build(plan: &Scope<'_>, data: &ParticipantData, results: &ModuleResults) 
             .clinical_flags
             .iter()
             .any(|c| c == OutcomesFlag::LabDiabetesRange.as_str()),
+        lab_low_egfr: state
+            .clinical_flags
+            .iter()
+            .any(|c| c == OutcomesFlag::LabLowEgfr.as_str()),
         glucose_lowering: data
             .profile
             .flags
@@ -892,6 +903,11 @@ fn compose(phase: Phase, state: &State, t: &Thresholds, f: &Facts) -> GuidanceVi
             "A recent lab value of yours is in the diabetes range (see “Points to note”): please talk to your clinician before acting on anything here.".to_string(),
         );
     }
+    if f.lab_low_egfr {
+        cautions.push(
+            "A recent eGFR of yours, an estimate of kidney function, is below 60 (see “Points to note”): please talk to your clinician before acting on anything here.".to_string(),
+        );
+    }
     if f.glucose_lowering {
         cautions.push(
             "Your profile notes a medicine that lowers blood sugar: please check with the clinician who prescribes it before eating less or doing more activity.".to_string(),
@@ -1030,19 +1046,30 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
     // deficit of about 110 kcal a day, a loss she was not to be advised; now 200). Where loss
     // is advised, a loss at that end is within the person's aim, and the central value sizes it.
     let careful_size = state.bmi.is_none() || bmi_rules_out_loss(state, t);
-    let cut = f
+    // The cut the balance asks for: its lower bound rounded down where it must not start a
+    // loss (an upper limit already, so rounded down before anything else), its central value
+    // otherwise.
+    let exact = f
         .balance
         .and_then(|b| {
             if careful_size {
                 b.lower.map(|l| fmt::floor_to(l, KCAL_STEP))
             } else {
-                Some(fmt::round_to(b.value, KCAL_STEP))
+                Some(b.value)
             }
         })
         .unwrap_or(0.0);
     let lower_intake = f
         .implied
         .map(|i| careful_intake(i.lower.unwrap_or(i.value), f.logged));
+    // The printed cut goes through the options' rounding (`printed_cut`): the multiple of 50
+    // nearest the exact cut that keeps the floor at the careful end, or none when the exact cut
+    // itself does not. It was rounded to 50 first and the floor tested on the rounded amount,
+    // so a cut of 280 kcal with 290 of room above the floor rounded to 300 and was refused
+    // ("could take your intake below 1,200 kcal a day"), and one of 310 with 300 of room was
+    // offered as 300, short of what the model says stops the rise.
+    let printed = lower_intake.and_then(|l| printed_cut(exact, l - floor, 0.0));
+    let cut = printed.unwrap_or_else(|| fmt::round_to(exact, KCAL_STEP));
     // An amount rests on the last four weeks' direction: when the rise is confirmed only by
     // level and those weeks cannot say whether it goes on (too few weigh-ins, or a slope too
     // uncertain), the balance that would size a change is no evidence of a surplus now, and
@@ -1055,7 +1082,7 @@ fn regain(t: &Thresholds, f: &Facts, floor: f64, state: &State) -> GuidanceView 
             "Until it is clear whether your weight is still going up, this report suggests no change to how much you eat or how active you are. Weighing in about {}, at the same time of day, for the next few weeks will show whether it has steadied; going back to the habits that worked for you earlier is a good first step meanwhile.",
             weigh_in_frequency(f.weigh_ins_target)
         ));
-    } else if cut >= t.min_intake_change_kcal && lower_intake.is_some_and(|l| l - cut >= floor) {
+    } else if cut >= t.min_intake_change_kcal && printed.is_some() {
         let effect = if careful_size {
             "slow the rise or stop it"
         } else {
@@ -1974,6 +2001,7 @@ mod tests {
             weigh_ins_target: 3.0,
             activity_target: 150.0,
             lab_in_diabetes_range: false,
+            lab_low_egfr: false,
             glucose_lowering: false,
             stale_since: None,
             last_report: false,
@@ -2944,6 +2972,63 @@ mod tests {
         let g = compose(Phase::Regain, &st(Regaining), &t, &f);
         assert!(g.options.is_empty(), "{:?}", g.options);
         assert!(g.paragraphs.iter().any(|p| p.contains("not suggested")));
+    }
+
+    /// The regain's "eat less" goes through the options' rounding (`printed_cut`): it was
+    /// rounded to 50 first and the floor tested on the rounded amount. A cut of 280 kcal with
+    /// 290 of room above the floor at the careful end (implied intake's lower bound 1,490, floor
+    /// 1,200) rounded to 300 and was refused; now 250, within the floor. A cut of 310 with 300
+    /// of room was offered as 300, short of what the model says stops the rise; now none, with
+    /// the reason.
+    #[test]
+    fn the_regain_cut_is_rounded_within_the_floor() {
+        let t = Thresholds::default();
+        let mut f = facts();
+        let mut s = st(Regaining);
+        // BMI 29, loss still advised: the central value sizes the cut.
+        s.bmi = Some(29.0);
+        f.implied = Some(Est {
+            value: 1640.0,
+            lower: Some(1490.0),
+            upper: Some(1790.0),
+        });
+        f.balance = Some(Est {
+            value: 280.0,
+            lower: Some(180.0),
+            upper: Some(380.0),
+        });
+        let g = compose(Phase::Regain, &s, &t, &f);
+        let eat_less = g
+            .options
+            .iter()
+            .find(|o| o.walk_minutes == 0.0)
+            .unwrap_or_else(|| panic!("no intake option: {g:?}"));
+        assert_eq!(eat_less.intake_cut_kcal, 250.0);
+        assert_eq!(eat_less.intake_at_lower_bound, Some(1240.0));
+        assert!(
+            eat_less.text.contains("250 kcal a day less"),
+            "{}",
+            eat_less.text
+        );
+        // 300 of room, a cut of 310: not offered, and the reason is the floor.
+        f.implied = Some(Est {
+            value: 1650.0,
+            lower: Some(1500.0),
+            upper: Some(1800.0),
+        });
+        f.balance = Some(Est {
+            value: 310.0,
+            lower: Some(210.0),
+            upper: Some(410.0),
+        });
+        let g = compose(Phase::Regain, &s, &t, &f);
+        assert!(g.options.iter().all(|o| o.walk_minutes > 0.0), "{g:?}");
+        assert!(
+            g.paragraphs
+                .iter()
+                .any(|p| p.contains("Eating less is not suggested here")),
+            "{g:?}"
+        );
     }
 
     /// What stops a rise is checked on its uncertain side: at a BMI where the report does not

@@ -51,6 +51,9 @@ pub struct ParticipantReportContext {
     pub labs: Option<TableView>,
     /// How many earlier lab values the table leaves out, in words (`None` when it shows all).
     pub labs_not_shown: Option<String>,
+    /// The footnote under the lab table: the source of the ranges of the tests it lists, each
+    /// named only when a row of that test is listed ([`labs_sources`]).
+    pub labs_sources: Option<String>,
     /// Flags raised by the modules (clinical ones first).
     pub flags: Vec<FlagView>,
     /// Why the figures may not be this participant's at all, shown before them: their
@@ -456,6 +459,7 @@ pub fn build(
         guidance,
         labs: v.outcomes.as_ref().and_then(labs),
         labs_not_shown: v.outcomes.as_ref().and_then(labs_not_shown),
+        labs_sources: v.outcomes.as_ref().and_then(labs_sources),
         flags: flags(results, p.withdrew.filter(|_| p.follow_up_weigh_ins())),
         record_notice: diags
             .iter()
@@ -778,6 +782,55 @@ fn labs_not_shown(o: &OutcomesView) -> Option<String> {
     })
 }
 
+/// The footnote under the lab table: whose ranges each listed test follows, for the tests it
+/// lists only. One sentence ("Ranges follow the American Diabetes Association's Standards of
+/// Care") stood under blood-pressure and waist rows too, which the ADA does not class here.
+fn labs_sources(o: &OutcomesView) -> Option<String> {
+    let shown = labs_shown(o);
+    if shown.is_empty() {
+        return None;
+    }
+    let has = |f: &dyn Fn(LabTest) -> bool| shown.iter().any(|&i| f(o.labs[i].test));
+    let mut parts: Vec<String> = Vec::new();
+    // The outcomes module's sources, as cited there.
+    let glycaemia = match (
+        has(&|t| t == LabTest::FastingGlucose),
+        has(&|t| t == LabTest::Hba1c),
+    ) {
+        (true, true) => Some("Glucose and HbA1c"),
+        (true, false) => Some("Glucose"),
+        (false, true) => Some("HbA1c"),
+        (false, false) => None,
+    };
+    if let Some(tests) = glycaemia {
+        parts.push(format!(
+            "{tests} ranges follow the American Diabetes Association's Standards of Care."
+        ));
+    }
+    if has(&|t| t == LabTest::Waist) {
+        parts.push(
+            "Waist ranges follow the World Health Organization's expert consultation on waist circumference (2008), for men and women separately; without a recorded sex a waist is only recorded."
+                .into(),
+        );
+    }
+    if has(&|t| matches!(t, LabTest::SystolicBp | LabTest::DiastolicBp)) {
+        let (sys, dia) = cohortpress_metric_outcomes::SEVERE_BP_MMHG;
+        parts.push(format!(
+            "Blood pressure is recorded without a range here; a reading above {}/{} mmHg is flagged for a clinician (American College of Cardiology and American Heart Association guideline, 2017).",
+            fmt::int(sys),
+            fmt::int(dia)
+        ));
+    }
+    if has(&|t| t == LabTest::Egfr) {
+        parts.push(
+            "eGFR categories (G1 to G5) follow the KDIGO 2012 guideline on chronic kidney disease."
+                .into(),
+        );
+    }
+    parts.push("A value in a range is not a diagnosis; your clinician interprets it.".into());
+    Some(parts.join(" "))
+}
+
 /// Lab values with their ranges, when there are any (the latest ones: [`labs_shown`]).
 fn labs(o: &OutcomesView) -> Option<TableView> {
     (!o.labs.is_empty()).then(|| TableView {
@@ -807,7 +860,12 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
                     l.test.label().to_string(),
                     value.trim().to_string(),
                     alt.trim().to_string(),
-                    l.category.as_str().replace('_', " "),
+                    // An eGFR's class is KDIGO's words (`mildly decreased (G2)`), not its code.
+                    if l.test == LabTest::Egfr {
+                        l.category.label().to_string()
+                    } else {
+                        l.category.as_str().replace('_', " ")
+                    },
                 ]
             })
             .collect(),
@@ -816,12 +874,12 @@ fn labs(o: &OutcomesView) -> Option<TableView> {
 
 /// A lab value with the decimals its unit is usually written with, so a column never mixes
 /// `5 %` and `5.1 %`: HbA1c in % and glucose in mmol/L to one decimal, mg/dL, mmol/mol and
-/// mmHg whole, lengths to one decimal (common practice in laboratory reports). A glucose or
+/// mmHg and eGFR whole, lengths to one decimal (common practice in laboratory reports). A glucose or
 /// HbA1c value is never rounded across the cut-off of the range printed beside it
 /// ([`cohortpress_metric_outcomes::lab_shown`]: 6.45 % prints 6.4 beside "prediabetes range").
 fn lab_number(test: LabTest, v: f64, unit: &str) -> String {
     let decimals = match unit {
-        "mg/dL" | "mmol/mol" | "mmHg" => 0,
+        "mg/dL" | "mmol/mol" | "mmHg" | "mL/min/1.73 m²" => 0,
         _ => 1,
     };
     fmt::fixed(
@@ -2590,6 +2648,9 @@ mod activity_unread_tests {
         assert_eq!(lab_number(G, 5.2, "mmol/L"), "5.2");
         assert_eq!(lab_number(SystolicBp, 128.0, "mmHg"), "128");
         assert_eq!(lab_number(DiastolicBp, 79.5, "mmHg"), "80");
+        assert_eq!(lab_number(LabTest::Egfr, 59.4, "mL/min/1.73 m²"), "59");
+        // Not rounded up across KDIGO's cut-off of 60 (G2 from 60).
+        assert_eq!(lab_number(LabTest::Egfr, 59.6, "mL/min/1.73 m²"), "59");
     }
 
     /// Demo, 150 participants, SG-134 with a glucose-lowering medicine, September: HbA1c

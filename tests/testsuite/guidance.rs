@@ -1275,3 +1275,90 @@ fn every_some_of_each_in_a_report_is_a_combined_row_of_the_tidy_options() {
         assert!(mixed.contains(&id.to_string()), "{id}: {mixed:?}");
     }
 }
+
+/// `blood_pressure,>180/110,mmHg` in labs.csv (a monitor past its range, or a record of a
+/// crisis) was dropped with a warning ("a bound (`>` or `<`) is not read for a blood pressure
+/// pair"), so the severe-pressure flag never saw the reading most likely to need it and the
+/// report went on with its suggestions. Now the bound bounds both numbers, the flag reads
+/// `> 180` systolic on its safe side (above 180), and the report holds its suggestions.
+#[test]
+fn a_blood_pressure_pair_with_a_bound_reaches_the_severe_pressure_flag() {
+    let prog = ProgramTest::sample();
+    let labs = prog.dir.join("participants/SG-001/labs.csv");
+    std::fs::write(
+        &labs,
+        "date,test,value,unit\n2026-09-15,hba1c,5.1,%\n2026-09-20,blood_pressure,>180/110,mmHg\n",
+    )
+    .unwrap();
+    let o = prog.run(&[
+        "run",
+        "{dir}",
+        "--as-of",
+        "2026-10-01",
+        "--only",
+        "SG-001",
+        "--formats",
+        "html",
+        "--out",
+        "out",
+    ]);
+    assert!(o.code <= 4, "{}", o.stderr);
+    let dq = std::fs::read_to_string(prog.dir.join("out/metrics/data-quality.csv")).unwrap();
+    assert!(!dq.contains("labs.csv,3,"), "{dq}");
+    let html = std::fs::read_to_string(prog.dir.join("out/participants/SG-001.html")).unwrap();
+    let text = html.replace("&gt;", ">");
+    assert!(!text.contains("blood pressure pair"), "{text}");
+    assert!(
+        text.contains("The most recent blood pressure (systolic > 180 mmHg on 20 Sep 2026) is above 180/120 mmHg"),
+        "{text}"
+    );
+    // The diastolic bound, `> 110`, is not known to be above 120: it is not named.
+    assert!(!text.contains("diastolic > 110 mmHg on"), "{text}");
+    // The guidance is the clinician's row: no amounts.
+    assert!(!text.contains("kcal a day less than now"), "{text}");
+}
+
+/// The lab table's footnote said "Ranges follow the American Diabetes Association's Standards
+/// of Care" under every table, blood-pressure rows included, which have no range and whose
+/// flag follows the ACC/AHA 2017 guideline. Each footnote now names the source of the rows it
+/// stands under, and only theirs.
+#[test]
+fn the_lab_footnote_names_the_source_of_the_rows_it_stands_under() {
+    let prog = ProgramTest::sample();
+    let labs = prog.dir.join("participants/SG-001/labs.csv");
+    let footnote = |rows: &str| {
+        std::fs::write(&labs, format!("date,test,value,unit\n{rows}")).unwrap();
+        let o = prog.run(&[
+            "run",
+            "{dir}",
+            "--as-of",
+            "2026-10-01",
+            "--only",
+            "SG-001",
+            "--formats",
+            "html",
+            "--out",
+            "out",
+        ]);
+        assert!(o.code <= 4, "{}", o.stderr);
+        let html = std::fs::read_to_string(prog.dir.join("out/participants/SG-001.html")).unwrap();
+        let at = html.find("id=\"h-labs\"").expect("a lab table");
+        let section = &html[at..at + html[at..].find("</section>").unwrap()];
+        let p = section.rfind("<p class=\"small\">").unwrap();
+        section[p..].replace("&#x27;", "'")
+    };
+    let bp = footnote("2026-09-20,blood_pressure,128/82,mmHg\n");
+    assert!(!bp.contains("American Diabetes Association"), "{bp}");
+    assert!(
+        bp.contains("Blood pressure is recorded without a range here; a reading above 180/120 mmHg is flagged for a clinician (American College of Cardiology and American Heart Association guideline, 2017)."),
+        "{bp}"
+    );
+    let mixed = footnote("2026-09-15,hba1c,5.1,%\n2026-09-15,egfr,72,mL/min/1.73m2\n");
+    assert!(
+        mixed.contains("<p class=\"small\">HbA1c ranges follow the American Diabetes Association's Standards of Care.")
+            && mixed.contains("eGFR categories (G1 to G5) follow the KDIGO 2012 guideline")
+            && !mixed.contains("Blood pressure")
+            && mixed.contains("A value in a range is not a diagnosis"),
+        "{mixed}"
+    );
+}

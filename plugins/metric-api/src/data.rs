@@ -233,6 +233,8 @@ pub enum LabTest {
     SystolicBp,
     /// Diastolic blood pressure, mmHg.
     DiastolicBp,
+    /// Estimated glomerular filtration rate (kidney function), canonical unit mL/min/1.73 m².
+    Egfr,
 }
 
 impl LabTest {
@@ -243,6 +245,7 @@ impl LabTest {
             LabTest::Hba1c => "%",
             LabTest::Waist => "cm",
             LabTest::SystolicBp | LabTest::DiastolicBp => "mmHg",
+            LabTest::Egfr => "mL/min/1.73 m²",
         }
     }
 }

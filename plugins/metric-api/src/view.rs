@@ -92,7 +92,7 @@ pub trait Code: Copy + Eq + fmt::Debug + 'static {
 impl Code for crate::LabTest {
     fn all() -> &'static [Self] {
         use crate::LabTest::*;
-        &[FastingGlucose, Hba1c, Waist, SystolicBp, DiastolicBp]
+        &[FastingGlucose, Hba1c, Waist, SystolicBp, DiastolicBp, Egfr]
     }
     fn code(self) -> &'static str {
         use crate::LabTest::*;
@@ -102,6 +102,7 @@ impl Code for crate::LabTest {
             Waist => "waist",
             SystolicBp => "systolic_bp",
             DiastolicBp => "diastolic_bp",
+            Egfr => "egfr",
         }
     }
     fn label(self) -> &'static str {
@@ -112,6 +113,7 @@ impl Code for crate::LabTest {
             Waist => "Waist",
             SystolicBp => "Blood pressure (systolic)",
             DiastolicBp => "Blood pressure (diastolic)",
+            Egfr => "eGFR (kidney function)",
         }
     }
 }

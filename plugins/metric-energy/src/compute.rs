@@ -46,6 +46,11 @@ use std::collections::BTreeMap;
 /// module raises its clinical `pregnancy` flag from the same word).
 const PREGNANCY_FLAG: &str = "pregnant";
 
+/// The profile flag that notes breastfeeding (profile.yaml `flags`, also written `breast
+/// feeding` or `lactating`; the `outcomes` module raises its clinical `breastfeeding` flag from
+/// the same word).
+const BREASTFEEDING_FLAG: &str = "breastfeeding";
+
 /// β = β_TEF + β_AT: the part of an intake change the body gives back (Hall et al. 2011).
 const BETA: f64 = BETA_TEF + BETA_AT;
 /// z quantile of the standard normal for a two-sided 95 % interval.
@@ -411,6 +416,9 @@ struct Person<'a> {
     /// The profile notes a pregnancy: weight change then includes the baby, the placenta and
     /// extra fluid, which the adult energy-balance model does not describe.
     pregnant: bool,
+    /// The profile notes breastfeeding: milk carries energy out of the body that the model
+    /// does not count, so every intake read from the weight trend would be too low by it.
+    breastfeeding: bool,
 }
 
 impl Person<'_> {
@@ -554,6 +562,8 @@ impl Person<'_> {
         let ceiling = self.max_intake_x_rmr * self.rmr_at(bw, d);
         if self.pregnant {
             Some(Unexplained::Pregnancy)
+        } else if self.breastfeeding {
+            Some(Unexplained::Breastfeeding)
         } else if intake < 0.0 {
             Some(Unexplained::Fall)
         } else if intake < self.very_low_implied {
@@ -668,6 +678,26 @@ pub(crate) fn run(
              describe, so the intake implied by the weight trend, what it says about the food \
              logs, the forecast and the options are not shown.",
         );
+    } else if cur.unexplained == Some(Unexplained::Breastfeeding) {
+        // Milk energy output is about 500 kcal a day in the first six months of exclusive
+        // breastfeeding and about 400 after (0.78 and 0.6 L a day at 0.67 kcal/g: IOM 2005,
+        // Dietary Reference Intakes for Energy, Carbohydrate, Fiber, Fat, Fatty Acids,
+        // Cholesterol, Protein, and Amino Acids, ch. 5, as summarised by Butte & King 2005,
+        // Public Health Nutr 8:1010, the FAO/WHO/UNU 2004 background paper, which gives
+        // 505 kcal a day extra in the first six months. The IOM volumes and energy density are
+        // checked against a published summary of its factorial method; the FAO/WHO/UNU figure
+        // and the chapter number are from memory). None of it is in the model,
+        // so the implied intake would read that much too low, the logs as over-reported by it,
+        // and the forecast a loss that is not coming (a "past underweight" note at BMI 25.8).
+        out.push_flag(
+            EnergyFlag::NotModelled.as_str(),
+            FlagSeverity::Info,
+            "While breastfeeding, making milk uses energy, often around 500 kcal a day, that \
+             this energy-balance model for adults does not count: the energy use shown leaves \
+             it out, and an intake read from the weight trend would be too low by about that \
+             much. So that intake, what it says about the food logs, the forecast and the \
+             options are not shown.",
+        );
     } else if let Some(why @ (Unexplained::Fall | Unexplained::VeryLow { .. })) = cur.unexplained {
         // Too low to print: a very-low-calorie diet's intake in a program that is not one, or
         // a fall the weigh-ins cannot carry. Either is for a clinician; the message names no
@@ -706,7 +736,10 @@ pub(crate) fn run(
                 intake.round(),
                 s.max_intake_x_rmr
             ),
-            Unexplained::Pregnancy | Unexplained::Fall | Unexplained::VeryLow { .. } => {
+            Unexplained::Pregnancy
+            | Unexplained::Breastfeeding
+            | Unexplained::Fall
+            | Unexplained::VeryLow { .. } => {
                 unreachable!("handled above")
             }
         };
@@ -835,6 +868,7 @@ fn start<'a>(
         max_intake_x_rmr: s.max_intake_x_rmr,
         very_low_implied: s.very_low_implied,
         pregnant: data.profile.flags.iter().any(|f| f == PREGNANCY_FLAG),
+        breastfeeding: data.profile.flags.iter().any(|f| f == BREASTFEEDING_FLAG),
     };
     Some((
         person,
@@ -899,6 +933,9 @@ enum Unexplained {
     /// Any weight change in pregnancy: not adult energy balance (IOM 2009, Weight Gain During
     /// Pregnancy — from memory).
     Pregnancy,
+    /// Any weight change while breastfeeding: milk's energy (about 500 kcal/d in the first six
+    /// months; IOM 2005, see [`run`]) is an expenditure the model does not count.
+    Breastfeeding,
 }
 
 /// SD of a slope from its 95 % band.
@@ -1278,22 +1315,44 @@ fn forecast(
     }
     let h_m = p.height_cm / 100.0;
     let under_kg = UNDERWEIGHT_BMI * h_m * h_m;
-    let underweight = cur.implied.filter(|_| cur.bw >= under_kg).and_then(|i| {
-        let crosses = points
-            .iter()
-            .find(|pt| pt.value < under_kg)
-            .map(|pt| pt.date);
-        let rest = p
-            .model
-            .steady_state_weight(i.value, cur.met_h_window)
-            .filter(|w| *w < under_kg);
-        (crosses.is_some() || rest.is_some()).then_some((crosses, rest))
-    });
     // Still falling: the window's slope, its whole 95 % interval below zero (as the outcomes
     // module's low-BMI test reads the trend).
     let still_falling = cur
         .slope
         .is_some_and(|sl| sl.value < 0.0 && sl.upper.is_some_and(|u| u < 0.0));
+    // How far below BMI 18.5 the central path (or the steady state) must go to be called
+    // heading there: while the trend is falling, any distance (the fall is real, and the
+    // crossing is where it leads); otherwise farther than the current trend weight's own 95 %
+    // half-width, so that a weight steady on the line, whose path drifts a few grams under it
+    // with a slope that cannot be told from zero, is not sent to a clinician. A woman of 1.60 m
+    // steady at 47.4 kg (BMI 18.52, 0.04 kg above the line) read "the model expects weight to
+    // fall below a BMI of 18.5 around 4 August 2026" (trend 47.38 kg, 47.29–47.46; the path
+    // went 0.02 kg under the line, less than the 0.08 kg half-width). Program choice: the
+    // trend's own uncertainty as the margin, as the forecast's band carries it (`level_half`).
+    // The date named is still that of the crossing of 18.5 itself; no estimate moves.
+    let margin = if still_falling { 0.0 } else { level_half };
+    let underweight = cur.implied.filter(|_| cur.bw >= under_kg).and_then(|i| {
+        let heads_under = points.iter().any(|pt| pt.value < under_kg - margin);
+        let crosses = points
+            .iter()
+            .find(|pt| pt.value < under_kg)
+            .map(|pt| pt.date)
+            .filter(|_| heads_under);
+        // The steady state, likewise: below the line at its central value while the trend
+        // falls, otherwise only when its whole 95 % interval is (the same interval the
+        // `steady_state_weight_kg` output gives: the current energy balance's uncertainty).
+        // The woman above read "the model expects weight to settle in the end at about 47 kg
+        // (104 lb), a BMI below 18.5" from a steady state of 47.27 kg (46.92–47.62).
+        let settles_under = still_falling
+            || p.model
+                .steady_state_weight(i.value + Z_95 * cur.balance_sd, cur.met_h_window)
+                .is_some_and(|upper| upper < under_kg);
+        let rest = p
+            .model
+            .steady_state_weight(i.value, cur.met_h_window)
+            .filter(|w| *w < under_kg && settles_under);
+        (crosses.is_some() || rest.is_some()).then_some((crosses, rest))
+    });
     let falls_further = cur
         .implied
         .filter(|_| cur.bw < under_kg)

@@ -371,7 +371,7 @@ impl MetricModule for EnergyModule {
                 "not_modelled",
                 "flag",
                 "",
-                "Energy-balance estimates not made (pregnancy)",
+                "Energy-balance estimates not made (pregnancy or breastfeeding)",
             ),
         ];
         ModuleSpec {

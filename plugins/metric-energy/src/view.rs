@@ -146,8 +146,9 @@ code_enum! {
         ForecastUnderweight = "forecast_underweight" => "At the current intake, weight heads below a BMI of 18.5, or further below it",
         /// Left the program before the period began: the period's energy figures are not estimated.
         LeftBeforePeriod = "left_before_period" => "Left before the period: its energy figures not estimated",
-        /// The energy-balance estimates are not made for this person (a pregnancy).
-        NotModelled = "not_modelled" => "Energy-balance estimates not made (pregnancy)",
+        /// The energy-balance estimates are not made for this person (a pregnancy, or
+        /// breastfeeding).
+        NotModelled = "not_modelled" => "Energy-balance estimates not made (pregnancy or breastfeeding)",
     }
 }
 

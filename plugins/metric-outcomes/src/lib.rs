@@ -81,6 +81,17 @@
 //!   for a licensed clinician soon, and no time to start eating less or walking more on a
 //!   report's suggestion (the report holds its suggestions). The table still shows blood
 //!   pressure as `recorded`, with no class below that level.
+//! * `lab_low_egfr` (clinical): the latest eGFR is below 60 mL/min/1.73 m² and not below 30,
+//!   KDIGO 2012 categories G3a (45–59) and G3b (30–44) (KDIGO 2012 Clinical Practice Guideline
+//!   for the Evaluation and Management of Chronic Kidney Disease, Kidney Int Suppl 3:1–150;
+//!   from memory).
+//!   For a licensed clinician; it does not hold the report's suggestions: the same guideline
+//!   encourages a healthy weight and regular activity in chronic kidney disease (from memory),
+//!   and a caution asks the person to talk to their clinician first. One value is not a
+//!   diagnosis (chronic kidney disease needs a lasting reduction, over three months).
+//! * `lab_very_low_egfr` (clinical): the latest eGFR is below 30 mL/min/1.73 m², KDIGO G4
+//!   (15–29) or G5 (below 15), where the guideline refers to specialist kidney care (from
+//!   memory) and eating is guided by it: it holds the report's suggestions.
 //! * `medication_review` (clinical): the profile carries `glucose-lowering-medication` and
 //!   `fast_loss`, `low_intake`, `very_low_intake`, `below_resting_intake` or `lab_low_glucose`
 //!   was raised, or the `energy` module (when it
@@ -256,6 +267,8 @@ pub fn lab_shown(test: LabTest, value: f64, unit: &str, decimals: i32) -> f64 {
                 Some(hba1c_class((v - at0) / per_percent))
             }
             (LabTest::FastingGlucose, "mmol/L") => Some(fasting_glucose_class(v)),
+            // 59.6 is G3a, below 60: printed "59", not "60" beside "below 60".
+            (LabTest::Egfr, _) => Some(egfr_class(v)),
             (LabTest::FastingGlucose, "mg/dL") => {
                 Some(fasting_glucose_class(v / GLUCOSE_MGDL_PER_MMOLL))
             }
@@ -415,6 +428,32 @@ pub const LOW_GLUCOSE_MG_DL: f64 = 70.0;
 /// al. 2018, Hypertension 71:e13; from memory).
 pub const SEVERE_BP_MMHG: (f64, f64) = (180.0, 120.0);
 
+/// eGFR below which a result is for a licensed clinician, mL/min/1.73 m²: the lower bound of
+/// KDIGO 2012's G2, so G3a–G5 (KDIGO 2012 CKD guideline, Kidney Int Suppl 3:1–150; from
+/// memory).
+pub const LOW_EGFR: f64 = 60.0;
+/// eGFR below which a result holds the report's suggestions, mL/min/1.73 m²: KDIGO G4–G5,
+/// where the guideline refers to specialist kidney care (same source; from memory).
+pub const VERY_LOW_EGFR: f64 = 30.0;
+
+/// KDIGO 2012 GFR category of an eGFR (mL/min/1.73 m²): G1 ≥ 90, G2 60–89, G3a 45–59,
+/// G3b 30–44, G4 15–29, G5 < 15 (half-open, as every class here).
+fn egfr_class(v: f64) -> LabCategory {
+    if at_least(v, 90.0) {
+        LabCategory::EgfrG1
+    } else if at_least(v, LOW_EGFR) {
+        LabCategory::EgfrG2
+    } else if at_least(v, 45.0) {
+        LabCategory::EgfrG3a
+    } else if at_least(v, VERY_LOW_EGFR) {
+        LabCategory::EgfrG3b
+    } else if at_least(v, 15.0) {
+        LabCategory::EgfrG4
+    } else {
+        LabCategory::EgfrG5
+    }
+}
+
 /// Waist-circumference risk category (Europid cut points): `not_increased_risk`,
 /// `increased_risk` or `substantially_increased_risk`.
 ///
@@ -501,6 +540,7 @@ fn test_words(t: LabTest) -> &'static str {
         LabTest::Waist => "waist circumference",
         LabTest::SystolicBp => "systolic blood pressure",
         LabTest::DiastolicBp => "diastolic blood pressure",
+        LabTest::Egfr => "eGFR (estimated kidney function)",
     }
 }
 
@@ -518,6 +558,7 @@ fn lab_category(lab: &LabResult, sex: Option<Sex>) -> LabCategory {
         LabTest::Hba1c => hba1c_class(v),
         LabTest::Waist => sex.map_or(LabCategory::Recorded, |sex| waist_class(v, sex)),
         LabTest::SystolicBp | LabTest::DiastolicBp => LabCategory::Recorded,
+        LabTest::Egfr => egfr_class(v),
     };
     // The nearest and the farthest values the bound allows (a strict bound excludes itself:
     // `>102` cm is above the 102 cm cut, `<5.7` % below 5.7).
@@ -542,7 +583,7 @@ fn lab_alt(lab: &LabResult) -> Option<(f64, &'static str)> {
         LabTest::FastingGlucose => Some((lab.value * GLUCOSE_MGDL_PER_MMOLL, "mg/dL")),
         LabTest::Hba1c => Some((hba1c_percent_to_mmolmol(lab.value), "mmol/mol")),
         LabTest::Waist => Some((lab.value / CM_PER_IN, "in")),
-        LabTest::SystolicBp | LabTest::DiastolicBp => None,
+        LabTest::SystolicBp | LabTest::DiastolicBp | LabTest::Egfr => None,
     }
 }
 
@@ -892,6 +933,18 @@ impl MetricModule for OutcomesModule {
                     "flag",
                     "",
                     "latest blood pressure above 180 mmHg systolic or 120 mmHg diastolic",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::LabLowEgfr.as_str(),
+                    "flag",
+                    "",
+                    "latest eGFR 30-59 mL/min/1.73 m2 (KDIGO 2012 G3a-G3b)",
+                ),
+                OutputSpec::new(
+                    OutcomesFlag::LabVeryLowEgfr.as_str(),
+                    "flag",
+                    "",
+                    "latest eGFR below 30 mL/min/1.73 m2 (KDIGO 2012 G4-G5; holds every suggestion)",
                 ),
                 OutputSpec::new(
                     OutcomesFlag::FastGain.as_str(),
@@ -1883,6 +1936,10 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Se
             continue;
         }
         let category = lab_category(l, sex);
+        if l.test == LabTest::Egfr {
+            push_egfr_flag(output, l);
+            continue;
+        }
         let (code, severity) = match category {
             LabCategory::DiabetesRange => (OutcomesFlag::LabDiabetesRange, FlagSeverity::Clinical),
             LabCategory::PrediabetesRange => {
@@ -1934,6 +1991,56 @@ fn push_lab_flags(output: &mut ModuleOutput, labs: &[&LabResult], sex: Option<Se
         );
     }
     low_glucose
+}
+
+/// The eGFR flags on the latest eGFR (G3a–G3b: `lab_low_egfr`; G4–G5: `lab_very_low_egfr`).
+/// A `<` bound is judged at the highest value it allows, which the true value is at or below,
+/// so on the safe side (`< 60` is below 60, and flagged); a `>` bound is not known to be below
+/// any cut-off and raises none.
+fn push_egfr_flag(output: &mut ModuleOutput, l: &LabResult) {
+    let (class, lower) = match l.censored {
+        None => (egfr_class(l.value), false),
+        Some(Censor::Below) => (egfr_class(l.value - 2.0 * CUT_EPS), true),
+        Some(Censor::AtMost) => (egfr_class(l.value), true),
+        Some(Censor::Above | Censor::AtLeast) => return,
+    };
+    let code = match class {
+        LabCategory::EgfrG3a | LabCategory::EgfrG3b => OutcomesFlag::LabLowEgfr,
+        LabCategory::EgfrG4 | LabCategory::EgfrG5 => OutcomesFlag::LabVeryLowEgfr,
+        _ => return,
+    };
+    let q = l
+        .censored
+        .map_or(String::new(), |c| format!("{} ", c.symbol()));
+    // A bound may lie in a lower class than the one its bound is in.
+    let class_words = if lower && class != LabCategory::EgfrG5 {
+        format!("{} or lower", class.label())
+    } else {
+        class.label().to_string()
+    };
+    let (cut, after) = if code == OutcomesFlag::LabVeryLowEgfr {
+        (
+            VERY_LOW_EGFR,
+            "At this level kidney care usually guides eating, so this report makes no \
+             suggestions for change until a clinician has looked at it.",
+        )
+    } else {
+        (
+            LOW_EGFR,
+            "Please talk to your clinician before acting on any suggestion in this report.",
+        )
+    };
+    output.push_flag(
+        code.as_str(),
+        FlagSeverity::Clinical,
+        format!(
+            "The most recent eGFR, an estimate of kidney function ({q}{:.0} mL/min/1.73 m², {}), \
+             is {class_words} in the KDIGO 2012 categories, below {cut:.0}. One result is not \
+             a diagnosis; please review it with a licensed clinician. {after}",
+            lab_shown(l.test, l.value, "mL/min/1.73 m²", 0),
+            l.date,
+        ),
+    );
 }
 
 /// What calls for a medication review (see [`push_medication_flag`]).

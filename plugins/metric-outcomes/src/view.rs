@@ -110,6 +110,18 @@ code_enum! {
         SubstantiallyIncreasedRisk = "substantially_increased_risk" => "substantially increased",
         /// Recorded, no category (blood pressure).
         Recorded = "recorded" => "recorded",
+        /// eGFR 90 or more: KDIGO 2012 category G1.
+        EgfrG1 = "egfr_g1" => "normal or high (G1)",
+        /// eGFR 60–89: KDIGO G2.
+        EgfrG2 = "egfr_g2" => "mildly decreased (G2)",
+        /// eGFR 45–59: KDIGO G3a.
+        EgfrG3a = "egfr_g3a" => "mildly to moderately decreased (G3a)",
+        /// eGFR 30–44: KDIGO G3b.
+        EgfrG3b = "egfr_g3b" => "moderately to severely decreased (G3b)",
+        /// eGFR 15–29: KDIGO G4.
+        EgfrG4 = "egfr_g4" => "severely decreased (G4)",
+        /// eGFR below 15: KDIGO G5.
+        EgfrG5 = "egfr_g5" => "kidney failure range (G5)",
     }
 }
 
@@ -134,6 +146,10 @@ code_enum! {
         LabLowGlucose = "lab_low_glucose" => "Fasting glucose below the normal range",
         /// Latest blood pressure above 180 mmHg systolic or 120 mmHg diastolic.
         LabSevereBp = "lab_severe_bp" => "Blood pressure above 180/120 mmHg",
+        /// Latest eGFR 30–59 mL/min/1.73 m² (KDIGO G3a–G3b).
+        LabLowEgfr = "lab_low_egfr" => "eGFR below 60 (kidney function)",
+        /// Latest eGFR below 30 mL/min/1.73 m² (KDIGO G4–G5).
+        LabVeryLowEgfr = "lab_very_low_egfr" => "eGFR below 30 (kidney function)",
         /// Glucose-lowering medication with fast loss or low intake.
         MedicationReview = "medication_review" => "Medication review",
         /// Gain faster than the fast-loss limit over the same span.

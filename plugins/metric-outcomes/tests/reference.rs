@@ -13,8 +13,9 @@ use cohortpress_metric_api::units::{
 };
 use cohortpress_metric_api::view::{Interval, ModuleView};
 use cohortpress_metric_api::{
-    Cell, FlagSeverity, IntakeDay, LabResult, LabTest, MetricModule, ModuleContext, ModuleOutput,
-    ParticipantData, Period, Point, Profile, ProgramInfo, Sex, Targets, UnitSystem, WeighIn,
+    Cell, Censor, FlagSeverity, IntakeDay, LabResult, LabTest, MetricModule, ModuleContext,
+    ModuleOutput, ParticipantData, Period, Point, Profile, ProgramInfo, Sex, Targets, UnitSystem,
+    WeighIn,
 };
 use cohortpress_metric_outcomes::{
     OutcomesModule, bmi, eag_mg_dl, fasting_glucose_category, hba1c_category, waist_category,
@@ -1561,5 +1562,100 @@ fn a_blood_pressure_above_180_over_120_is_flagged_for_a_clinician() {
         out.flags.iter().all(|f| f.code != "lab_severe_bp"),
         "{:?}",
         out.flags
+    );
+}
+
+/// eGFR was an "unknown test; the row is dropped": kidney function never reached a clinician.
+/// Now the latest eGFR is classed by the KDIGO 2012 GFR categories (Kidney Int Suppl 3:1–150;
+/// G1 ≥ 90, G2 60–89, G3a 45–59, G3b 30–44, G4 15–29, G5 < 15; from memory) and flagged below
+/// 60 (`lab_low_egfr`, G3a–G3b) or below 30 (`lab_very_low_egfr`, G4–G5); 60 itself raises
+/// none, and a censored `> 60` is not below it.
+#[test]
+fn an_egfr_below_60_is_classed_by_kdigo_and_flagged_for_a_clinician() {
+    let mut p = steady_loser();
+    let flags_for = |p: &mut cohortpress_metric_api::ParticipantData, v: f64, c: Option<Censor>| {
+        p.labs = vec![LabResult {
+            censored: c,
+            ..lab(10, LabTest::Egfr, v, "mL/min/1.73m2", v)
+        }];
+        let out = run(&ctx(day(0), day(40), None), p);
+        let t = out.table("labs").unwrap();
+        let col = t.columns.iter().position(|c| c.name == "category").unwrap();
+        let class = format!("{:?}", t.rows[0][col]);
+        let flags: Vec<(String, String)> = out
+            .flags
+            .iter()
+            .filter(|f| f.code.contains("egfr"))
+            .map(|f| (f.code.clone(), f.message.clone()))
+            .collect();
+        (class, flags)
+    };
+    for (v, class) in [
+        (95.0, "egfr_g1"),
+        (90.0, "egfr_g1"),
+        (60.0, "egfr_g2"),
+        (59.0, "egfr_g3a"),
+        (45.0, "egfr_g3a"),
+        (44.0, "egfr_g3b"),
+        (30.0, "egfr_g3b"),
+        (29.0, "egfr_g4"),
+        (15.0, "egfr_g4"),
+        (14.0, "egfr_g5"),
+    ] {
+        let (c, flags) = flags_for(&mut p, v, None);
+        assert!(c.contains(class), "{v}: {c}");
+        let want = if v >= 60.0 {
+            None
+        } else if v >= 30.0 {
+            Some("lab_low_egfr")
+        } else {
+            Some("lab_very_low_egfr")
+        };
+        assert_eq!(flags.first().map(|f| f.0.as_str()), want, "{v}: {flags:?}");
+        assert!(flags.len() <= 1, "{flags:?}");
+    }
+    let (_, flags) = flags_for(&mut p, 59.0, None);
+    assert_eq!(
+        flags[0].1,
+        "The most recent eGFR, an estimate of kidney function (59 mL/min/1.73 m², 2027-03-11), \
+         is mildly to moderately decreased (G3a) in the KDIGO 2012 categories, below 60. One \
+         result is not a diagnosis; please review it with a licensed clinician. Please talk to \
+         your clinician before acting on any suggestion in this report."
+    );
+    let (_, flags) = flags_for(&mut p, 12.0, None);
+    assert!(
+        flags[0]
+            .1
+            .contains("kidney failure range (G5) in the KDIGO 2012 categories, below 30")
+            && flags[0].1.ends_with(
+                "this report makes no suggestions for change until a clinician has looked at it."
+            ),
+        "{}",
+        flags[0].1
+    );
+    // Bounds, on the safe side: `< 60` is below 60 (G3a or lower; the table says only
+    // `recorded`, as the class is not known), `< 30` below 30, `< 15` G5; `> 20` is not known to
+    // be below any cut-off.
+    assert!(flags_for(&mut p, 20.0, Some(Censor::Above)).1.is_empty());
+    let (c, flags) = flags_for(&mut p, 60.0, Some(Censor::Below));
+    assert!(c.contains("recorded"), "{c}");
+    assert_eq!(flags[0].0, "lab_low_egfr");
+    assert!(
+        flags[0].1.contains(
+            "(< 60 mL/min/1.73 m², 2027-03-11), is mildly to moderately decreased (G3a) or lower"
+        ),
+        "{flags:?}"
+    );
+    assert_eq!(
+        flags_for(&mut p, 30.0, Some(Censor::Below)).1[0].0,
+        "lab_very_low_egfr"
+    );
+    let (c, flags) = flags_for(&mut p, 15.0, Some(Censor::Below));
+    assert!(c.contains("egfr_g5"), "{c}");
+    assert!(
+        flags[0]
+            .1
+            .contains("(< 15 mL/min/1.73 m², 2027-03-11), is kidney failure range (G5) in"),
+        "{flags:?}"
     );
 }

@@ -1685,7 +1685,7 @@ fn censored_lab_values_are_read_as_bounds() {
     )
     .unwrap();
     let got: Vec<(f64, Option<Censor>)> = v.iter().map(|l| (l.value, l.censored)).collect();
-    assert_eq!(got.len(), 6, "{diags:#?}");
+    assert_eq!(got.len(), 8, "{diags:#?}");
     assert_eq!(got[0], (14.0, Some(Censor::Above)));
     assert_eq!(got[1], (14.0, Some(Censor::Above)));
     assert_eq!(got[2], (14.0, Some(Censor::AtLeast)));
@@ -1695,12 +1695,21 @@ fn censored_lab_values_are_read_as_bounds() {
     assert_eq!(got[4].1, Some(Censor::AtMost));
     assert_eq!(v[4].unit_as_written, "mmol/mol");
     assert_eq!(got[5], (6.1, None));
-    // A bound on a blood pressure pair is not read, and says so.
-    assert_eq!(diags.len(), 1, "{diags:#?}");
-    assert!(
-        diags[0].message.contains("blood pressure pair"),
-        "{diags:#?}"
+    // A bound on a blood pressure pair bounds both numbers, as on a row of its own each: it
+    // was dropped with a warning ("a bound … is not read for a blood pressure pair").
+    assert!(diags.is_empty(), "{diags:#?}");
+    let bp: Vec<(LabTest, f64, Option<Censor>)> = v[6..]
+        .iter()
+        .map(|l| (l.test, l.value, l.censored))
+        .collect();
+    assert_eq!(
+        bp,
+        [
+            (LabTest::SystolicBp, 180.0, Some(Censor::Above)),
+            (LabTest::DiastolicBp, 110.0, Some(Censor::Above)),
+        ]
     );
+    assert!(v[6..].iter().all(|l| l.unit_as_written == "mmHg"));
 }
 
 /// A `<` bound below the plausible range (an assay's lower limit: `<2.5 %`, `<0.5 mmol/L`) is
@@ -3993,4 +4002,37 @@ fn a_numeric_date_after_a_withdrawal_in_every_reading_is_not_read() {
     );
     // The rows after the withdrawal are not counted among the file's rows either.
     assert_eq!(c.rows_in_file(), 4);
+}
+
+/// eGFR was "unknown test; the row is dropped" under every name and code: kidney function
+/// never reached a clinician. It is read by its usual names and LOINC codes, in mL/min/1.73 m²
+/// only (`mL/min` alone may be a creatinine clearance, not normalised: unit not accepted).
+#[test]
+fn egfr_is_read_by_name_and_loinc_code_in_ml_min_per_1_73_m2() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,eGFR,59,mL/min/1.73m2\n2026-04-02,62238-1,44,mL/min/1.73 m²\n2026-04-03,98979-8,>90,mL/min/{1.73_m2}\n2026-04-04,Estimated GFR,28,mL/min/1.73m2\n2026-04-05,egfr,58,mL/min\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let got: Vec<(LabTest, f64, Option<Censor>)> =
+        v.iter().map(|l| (l.test, l.value, l.censored)).collect();
+    assert_eq!(
+        got,
+        [
+            (LabTest::Egfr, 59.0, None),
+            (LabTest::Egfr, 44.0, None),
+            (LabTest::Egfr, 90.0, Some(Censor::Above)),
+            (LabTest::Egfr, 28.0, None),
+        ]
+    );
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(6));
+    assert!(
+        diags[0].message.contains("unit not accepted for `egfr`"),
+        "{diags:#?}"
+    );
 }

@@ -1417,6 +1417,84 @@ fn a_pregnancy_gives_no_implied_intake_and_says_why() {
     assert_eq!(cell_num(opt, 0, "change_per_day"), None);
 }
 
+/// Breastfeeding noted in the profile (hand-made: 72 kg at 165 cm, BMI 26.4, losing 0.5 kg a
+/// week on logs of 1,500 kcal/d): the implied intake, the logs-versus-trend reading and the
+/// forecast were printed, though milk's energy (about 500 kcal/d in the first six months: IOM
+/// 2005, from memory; Butte & King 2005, Public Health Nutr 8:1010) is in none of them: the
+/// implied intake was too low by it, and the forecast ran on towards underweight. Now nothing is
+/// read from the weight trend, as in pregnancy, with the reason in words for the participant;
+/// the same record without the flag still gives every figure.
+#[test]
+fn breastfeeding_gives_no_implied_intake_and_says_why() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let weights: Vec<f64> = (0..n).map(|i| 72.0 - 0.5 / 7.0 * i as f64).collect();
+    let run = |flags: Vec<String>| {
+        let mut p = profile(Sex::Female, 165.0, 31.0, enrolled);
+        p.flags = flags;
+        let mut data = data(p);
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        data.intake = daily_logs(enrolled, n, 1500.0);
+        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, 0.4, 0.05, &[]),
+        );
+        EnergyModule.compute(&c, &data).unwrap()
+    };
+    let usual = run(vec![]);
+    assert!(usual.scalar("implied_intake_kcal_per_day").is_some());
+    assert!(usual.scalar("forecast_weight_at_end_kg").is_some());
+    assert!(usual.flags.iter().all(|f| f.code != "not_modelled"));
+    let out = run(vec!["breastfeeding".into()]);
+    for name in [
+        "implied_intake_kcal_per_day",
+        "implied_intake_lower_kcal_per_day",
+        "energy_balance_kcal_per_day",
+        "intake_gap_kcal_per_day",
+        "underreporting_percent",
+        "forecast_weight_at_end_kg",
+    ] {
+        assert_eq!(out.scalar(name), None, "{name}");
+    }
+    // Resting energy is still shown: it is the person's, breastfeeding or not.
+    assert!(out.scalar("rmr_kcal_per_day").is_some());
+    let flag = out
+        .flags
+        .iter()
+        .find(|f| f.code == "not_modelled")
+        .expect("flag");
+    assert!(
+        flag.message.starts_with(
+            "While breastfeeding, making milk uses energy, often around 500 kcal a day"
+        ),
+        "{}",
+        flag.message
+    );
+    assert!(
+        out.flags.iter().all(|f| f.code != "forecast_underweight"
+            && f.code != "logs_inconsistent_with_trend"
+            && f.code != "unexplained_weight_change"
+            && f.code != "very_low_implied_intake"),
+        "{:?}",
+        out.flags
+    );
+    let weekly = out.table("weekly_energy").unwrap();
+    for r in 0..weekly.rows.len() {
+        assert_eq!(
+            cell_num(weekly, r, "implied_intake_kcal_per_day"),
+            None,
+            "week {r}"
+        );
+    }
+    let opt = out.table("options").unwrap();
+    assert_eq!(cell_num(opt, 0, "change_per_day"), None);
+}
+
 /// Sample program, September 2026, SG-013: "Points to note" printed "Logged intake averages
 /// 1,600 kcal/d, while the weight trend implies about 2,895 kcal/d", beside the report's
 /// "1,600 kcal/day" and prose in "kcal a day".
@@ -1659,6 +1737,64 @@ fn a_sex_not_recorded_takes_the_mean_equation_a_wider_interval_and_the_higher_fl
         "{}",
         cell_text(opt, 0, "reason")
     );
+}
+
+/// A woman of 1.60 m steady at 47.4 kg (BMI 18.52, BMI 18.5 is 47.36 kg), her trend drifting
+/// down by a slope that cannot be told from zero, was sent to a clinician: "the model expects
+/// weight to fall below a BMI of 18.5 around …", as the central path started 0.04 kg above the
+/// line. A path that goes under the line by less than the trend's own 95 % half-width, with a
+/// trend that is not falling, now raises nothing, nor does a steady state whose interval
+/// reaches above the line; a weight really heading under (falling, or a path well under the
+/// line) is still flagged. No estimate moves.
+#[test]
+fn a_steady_weight_on_the_underweight_line_is_not_flagged_but_one_heading_under_is() {
+    let enrolled = d("2027-01-04");
+    let period = Period {
+        from: d("2027-03-01"),
+        to: d("2027-03-31"),
+    };
+    let n = days_incl(enrolled, period.to) as usize;
+    let under = 18.5 * 1.6 * 1.6;
+    let run_with = |start: f64, per_week: f64, level_hw: f64, slope_hw: f64| {
+        let weights: Vec<f64> = (0..n).map(|i| start - per_week * i as f64 / 7.0).collect();
+        let mut data = data(profile(Sex::Female, 160.0, 45.0, enrolled));
+        data.weights = daily_weigh_ins(enrolled, &weights);
+        let mut c = ctx(enrolled, d("2027-06-30"), period, serde_json::json!({}));
+        c.earlier.insert(
+            "trend".into(),
+            trend_output(enrolled, &weights, level_hw, slope_hw, &[]),
+        );
+        let out = EnergyModule.compute(&c, &data).unwrap();
+        let flag = out
+            .flags
+            .iter()
+            .find(|f| f.code == "forecast_underweight")
+            .map(|f| (f.severity, f.message.clone()));
+        (out, flag)
+    };
+    // Steady on the line: 47.40 → about 47.36 kg over the 12 weeks (−0.003 kg a week, its
+    // interval ±0.01 kg a week), trend level ±0.08 kg.
+    let (out, flag) = run_with(47.40, 0.003, 0.08, 0.0015);
+    let end = out.scalar("forecast_weight_at_end_kg").unwrap();
+    // The central path does go under the line (the estimate is as before) …
+    assert!(end < under && end > under - 0.08, "{end} vs {under}");
+    // … but by less than the trend's own uncertainty: no flag, neither for a clinician nor a
+    // notice of a steady state below the line.
+    assert_eq!(flag, None);
+    // Heading under: 52 kg losing 0.3 kg a week, 48.3 kg at the period's end (interval ±0.035 kg
+    // a week: falling).
+    let (_, flag) = run_with(52.0, 0.3, 0.08, 0.005);
+    let (severity, message) = flag.expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical);
+    assert!(message.contains("below a BMI of 18.5 around"), "{message}");
+    // A slope that cannot be told from zero (±0.35 kg a week) but a path that goes under the
+    // line by more than the trend's half-width (48.2 kg at the period's end losing 0.1 kg a
+    // week, about 1 kg lower by the end of June): flagged.
+    let (out, flag) = run_with(48.2 + 0.1 * n as f64 / 7.0, 0.1, 0.08, 0.05);
+    let end = out.scalar("forecast_weight_at_end_kg").unwrap();
+    assert!(end < under - 0.1, "{end}");
+    let (severity, _) = flag.expect("flagged");
+    assert_eq!(severity, FlagSeverity::Clinical);
 }
 
 /// Someone already underweight whose weight is still falling gets the forecast flag however
