@@ -232,6 +232,9 @@ pub struct Table {
     /// sets no format, with the file's own date that tells it (as written, and its date).
     numeric_order: Option<NumericOrder>,
     numeric_example: Option<(String, NaiveDate)>,
+    /// How many of the file's numeric dates read only the other way round from its order
+    /// (each costs its row, with a warning).
+    numeric_against: usize,
     /// When dates come from date rows above the measurements: the field of the time of day,
     /// which messages about a row's date point at.
     date_rows_in: Option<usize>,
@@ -432,6 +435,7 @@ impl Table {
             utc_spans: Vec::new(),
             serial_dates: None,
             numeric_order: None,
+            numeric_against: 0,
             numeric_example: None,
             date_rows_in: None,
             summary_rows: RefCell::new((0, None)),
@@ -492,12 +496,16 @@ impl Table {
         // The file's own date that tells the order (a fixed example such as `05/13/2026` read
         // as if the file held it).
         if let (Some(order), Some((written, date))) = (self.numeric_order, &self.numeric_example) {
-            let only = match order {
-                NumericOrder::YearFirst => "puts every date of the file within the program",
-                _ => "reads every date of the file",
+            let only = match (order, self.numeric_against) {
+                (NumericOrder::YearFirst, _) => {
+                    "the only order that puts every date of the file within the program".to_string()
+                }
+                (_, 0) => "the only order that reads every date of the file".to_string(),
+                (_, 1) => "the order of all the file's dates but one, which reads only the other way round (dropped with a warning)".to_string(),
+                (_, n) => format!("the order of all the file's dates but {n}, which read only the other way round (each dropped with a warning)"),
             };
             parts.push(format!(
-                "numeric dates read {} (`{written}` = {date}), the only order that {only}",
+                "numeric dates read {} (`{written}` = {date}), {only}",
                 order.words()
             ));
         }
@@ -789,8 +797,9 @@ pub fn read_table(
         {
             Ok((serial, order)) => {
                 table.serial_dates = serial;
-                table.numeric_order = order.as_ref().map(|(o, _)| *o);
-                table.numeric_example = order.and_then(|(_, example)| example);
+                table.numeric_order = order.as_ref().map(|(o, ..)| *o);
+                table.numeric_against = order.as_ref().map_or(0, |(.., n)| *n);
+                table.numeric_example = order.and_then(|(_, example, _)| example);
                 Some(table)
             }
             Err(d) => {
@@ -3254,9 +3263,10 @@ impl NumericOrder {
     }
 }
 
-/// The order of a file's numeric dates, and the file's own date that tells it (none when every
-/// numeric date of the file lies after a withdrawal of consent: none of them is quoted).
-type NumericReading = (NumericOrder, Option<(String, NaiveDate)>);
+/// The order of a file's numeric dates, the file's own date that tells it (none when every
+/// numeric date of the file lies after a withdrawal of consent: none of them is quoted), and how
+/// many of its dates read only the other way round (each costs its row).
+type NumericReading = (NumericOrder, Option<(String, NaiveDate)>, usize);
 
 /// The first number, the second, the last (the year unless year first), the separator of a
 /// numeric date, and whether the last was written with one or two digits (`05/01/26`).
@@ -3403,7 +3413,7 @@ fn numeric_order(
                     .iter()
                     .all(|(_, _, p)| place(*p, *o, span).is_some())
             })
-            .map(|o| (o, None)));
+            .map(|o| (o, None, 0)));
     };
     // The orders that read every such date; orders that give every one the same date (`05/05/26`
     // either way, `26-05-26` year or day first in 2026) are one reading.
@@ -3459,7 +3469,7 @@ fn numeric_order(
                 })
                 .unwrap_or(&dates[0]);
             let date = at(*parts, *one).expect("the one order reads every such date");
-            Ok(Some((*one, Some(((*written).to_string(), date)))))
+            Ok(Some((*one, Some(((*written).to_string(), date)), 0)))
         }
         // Two-digit years that no one order puts within the program, in a file of such dates:
         // which dates they are cannot be told, and dropping every row one by one would hide
@@ -3501,6 +3511,42 @@ fn numeric_order(
                     NumericOrder::YearFirst.short_format(sep)
                 )),
             ))
+        }
+        // No order reads every date, four-digit years: nine in ten or more (common practice,
+        // as for a date column found by its cells) of the dates that read one way only read
+        // the same way (`10/13/2026` … month first), and the others only the other way round
+        // (`15/10/2026`: a date typed day first, or a slip). The
+        // file is read in the order of the nine in ten; each date written the other way costs
+        // its row, warned about at its cell. One such date made no order read every date, and
+        // every row of a US export was dropped as an "unreadable date" that named none of
+        // this. Dates that read both ways are read in the file's order, as in a file without
+        // the slip. When the dates that tell are split more evenly (two people's habits in one
+        // sheet), nothing is read on a guess: each date that does not read is warned about.
+        [] if !short => {
+            let only = |o: NumericOrder| {
+                dates
+                    .iter()
+                    .filter(|(_, _, p)| {
+                        place(*p, o, span).is_some()
+                            && NumericOrder::ALL
+                                .iter()
+                                .filter(|x| **x != o)
+                                .all(|x| place(*p, *x, span).is_none())
+                    })
+                    .collect::<Vec<_>>()
+            };
+            let (day, month) = (only(NumericOrder::DayFirst), only(NumericOrder::MonthFirst));
+            let (order, telling, against) = if day.len() >= month.len() {
+                (NumericOrder::DayFirst, day, month.len())
+            } else {
+                (NumericOrder::MonthFirst, month, day.len())
+            };
+            if telling.len() * 10 < (telling.len() + against) * 9 {
+                return Ok(None);
+            }
+            let (_, written, parts) = telling[0];
+            let date = place(*parts, order, span).expect("it reads in this order");
+            Ok(Some((order, Some(((*written).to_string(), date)), against)))
         }
         [] => Ok(None),
         // Among other dates, the few that cannot be told are warned about one by one.
@@ -3807,6 +3853,20 @@ impl Cells<'_> {
                     .iter()
                     .all(|o| place(*p, *o, self.opts.program_span).is_none())
             });
+        // A numeric date that reads only the other way round from the file's order (see
+        // [`numeric_order`]): the order and its date read that way.
+        let other_way = self
+            .table
+            .numeric_order
+            .filter(|_| self.table.numeric_against > 0)
+            .zip(numeric_parts(s))
+            .filter(|(o, p)| place(*p, *o, self.opts.program_span).is_none())
+            .and_then(|(o, p)| {
+                NumericOrder::ALL
+                    .into_iter()
+                    .filter(|x| *x != o)
+                    .find_map(|x| place(p, x, self.opts.program_span).map(|d| (o, x, d)))
+            });
         match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
@@ -3884,6 +3944,39 @@ impl Cells<'_> {
                         ))
                         .found(format!("`{s}`: read {}, {why}", order.words()))
                         .hint("correct the day or the month of this date in the file (a slip of the keyboard or of a month's length), or remove the row"),
+                );
+                None
+            }
+            None if other_way.is_some() => {
+                let (order, other, date) = other_way.expect("checked");
+                let like = self
+                    .table
+                    .numeric_example
+                    .as_ref()
+                    .map(|(w, d)| format!(" (`{w}` = {d})"))
+                    .unwrap_or_default();
+                diags.push(
+                    self.warn(
+                        col,
+                        format!(
+                            "a date written {} while the file's other dates are {}; the row is dropped",
+                            other.words(),
+                            order.words()
+                        ),
+                    )
+                    .expected(format!(
+                        "a date written {} as the file's other dates{like}",
+                        order.words()
+                    ))
+                    .found(format!(
+                        "`{s}`: no date read {}; read {} it is {date}",
+                        order.words(),
+                        other.words()
+                    ))
+                    .hint(format!(
+                        "if it is {date}, write it {} as the others or as `{date}`; otherwise (a slip of the keyboard) correct it, or remove the row",
+                        order.words()
+                    )),
                 );
                 None
             }
@@ -5896,6 +5989,95 @@ mod tests {
             "{}",
             d[0]
         );
+    }
+
+    /// One date typed the other way round (`15/10/2026` in a US export of `10/13/2026` …) made
+    /// no order read every date, and every row of the file was dropped as an "unreadable date"
+    /// that named neither the order nor the slip. Nine in ten of the dates that tell read one
+    /// way: the file is read so, and the slip costs its row, named with both readings.
+    #[test]
+    fn one_date_typed_the_other_way_round_costs_its_row_not_the_file() {
+        let opts = CsvOptions::default();
+        let read_all = |text: &str| {
+            let (t, d) = read(text, &opts);
+            assert!(d.is_empty(), "{d:?}");
+            let t = t.expect("the file is read");
+            let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+            let mut warnings = Vec::new();
+            let dates: Vec<Option<String>> = t
+                .rows
+                .iter()
+                .map(|row| {
+                    let c = Cells {
+                        table: &t,
+                        row,
+                        ctx: &ctx,
+                        opts: &opts,
+                    };
+                    c.date("date", &mut warnings).map(|x| x.to_string())
+                })
+                .collect();
+            t.describe(&opts, &ctx);
+            let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+            (notes, dates, warnings)
+        };
+        // Month first: nine dates after the 12th, 10/05 (both ways), and 15/10 (day first only).
+        let mut text = "date,weight,unit\n10/05/2026,90,kg\n".to_string();
+        for day in 13..=21 {
+            text.push_str(&format!("10/{day}/2026,89,kg\n"));
+        }
+        text.push_str("15/10/2026,88,kg\n");
+        let (notes, dates, w) = read_all(&text);
+        assert_eq!(dates[0].as_deref(), Some("2026-10-05"), "read month first");
+        assert_eq!(dates[1].as_deref(), Some("2026-10-13"));
+        assert_eq!(dates[10], None);
+        assert_eq!(dates.iter().flatten().count(), 10);
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert_eq!((w[0].line, w[0].column), (Some(12), Some(1)));
+        assert!(
+            w[0].message
+                .contains("a date written day first while the file's other dates are month first"),
+            "{}",
+            w[0]
+        );
+        assert_eq!(
+            w[0].found.as_deref(),
+            Some("`15/10/2026`: no date read month first; read day first it is 2026-10-15")
+        );
+        assert!(
+            w[0].expected
+                .as_deref()
+                .unwrap()
+                .contains("`10/13/2026` = 2026-10-13"),
+            "{}",
+            w[0]
+        );
+        assert!(
+            notes
+                .join(" ")
+                .contains("the order of all the file's dates but one"),
+            "{notes:?}"
+        );
+        // Day first with dashes, one month-first slip: the same, the other way.
+        let mut text = "date,weight,unit\n".to_string();
+        for day in 13..=22 {
+            text.push_str(&format!("{day}-10-2026,89,kg\n"));
+        }
+        text.push_str("10-23-2026,88,kg\n03-11-2026,87,kg\n");
+        let (_, dates, w) = read_all(&text);
+        assert_eq!(dates[10], None);
+        assert_eq!(dates[11].as_deref(), Some("2026-11-03"), "read day first");
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert_eq!(w[0].line, Some(12));
+        // Split more evenly (two habits in one sheet, 8 against 2): no order is taken, and
+        // each date that does not read is warned about, as before.
+        let mut text = "date,weight,unit\n".to_string();
+        for day in 13..=20 {
+            text.push_str(&format!("10/{day}/2026,89,kg\n"));
+        }
+        text.push_str("21/10/2026,88,kg\n22/10/2026,88,kg\n");
+        let (t, _) = read(&text, &opts);
+        assert_eq!(t.expect("read").numeric_order, None);
     }
 
     /// Rows that may be dated after a withdrawal of consent are not read, so they do not tell
