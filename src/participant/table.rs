@@ -858,14 +858,22 @@ impl SerialDates {
 /// years (common practice).
 pub const SERIAL_DATE_MARGIN_DAYS: i64 = 365;
 
-/// Whether `s` is written as a spreadsheet serial date: digits, and a fraction of a day.
+/// Whether `s` is written as a spreadsheet serial date: digits, and a fraction of a day after
+/// a decimal point or a decimal comma (`46297,27153`, as a spreadsheet of a decimal-comma locale
+/// writes an unformatted date-time cell; five digits before it cannot be thousands grouped).
 fn is_serial(s: &str) -> bool {
-    let (int, frac) = s.split_once('.').unwrap_or((s, "0"));
+    serial_number(s).is_some()
+}
+
+/// The number a spreadsheet serial date (see [`is_serial`]) is written as.
+fn serial_number(s: &str) -> Option<f64> {
+    let (int, frac) = s.split_once(['.', ',']).unwrap_or((s, "0"));
     // Five digits: 10000 to 99999 are the years 1927 to 2177 across the two systems.
-    int.len() == 5
+    let serial = int.len() == 5
         && !frac.is_empty()
         && int.bytes().all(|b| b.is_ascii_digit())
-        && frac.bytes().all(|b| b.is_ascii_digit())
+        && frac.bytes().all(|b| b.is_ascii_digit());
+    serial.then(|| format!("{int}.{frac}").parse().ok())?
 }
 
 /// The date system of a file's spreadsheet serial dates (`46143` for 1 May 2026): the one
@@ -890,8 +898,7 @@ fn serial_dates(
     let fits = |system: SerialDates| {
         opts.program_span.is_some_and(|(start, end)| {
             serials.iter().all(|(_, s)| {
-                s.parse::<f64>()
-                    .ok()
+                serial_number(s)
                     .and_then(|v| system.date_time(v))
                     .is_some_and(|dt| dt.date() >= start - margin && dt.date() <= end + margin)
             })
@@ -902,9 +909,7 @@ fn serial_dates(
         .filter(|&s| fits(s))
         .collect();
     let reading = |system: SerialDates| {
-        first
-            .parse::<f64>()
-            .ok()
+        serial_number(first)
             .and_then(|v| system.date_time(v))
             .map_or("no date".to_string(), |dt| dt.date().to_string())
     };
@@ -918,9 +923,7 @@ fn serial_dates(
         return Ok(None);
     }
     if let [system] = fitting.as_slice() {
-        let date = first
-            .parse::<f64>()
-            .ok()
+        let date = serial_number(first)
             .and_then(|v| system.date_time(v))
             .expect("it fits")
             .date();
@@ -3982,8 +3985,7 @@ impl Cells<'_> {
             }
             None if is_serial(s) => {
                 let reading = |system: SerialDates| {
-                    s.parse::<f64>()
-                        .ok()
+                    serial_number(s)
                         .and_then(|v| system.date_time(v))
                         .map_or("no date".to_string(), |dt| dt.date().to_string())
                 };
@@ -4100,10 +4102,7 @@ impl Cells<'_> {
     /// A spreadsheet serial date, in the date system found for the file (see [`SerialDates`]).
     fn serial_date(&self, s: &str) -> Option<When> {
         let (system, _, _) = self.table.serial_dates.as_ref()?;
-        if !is_serial(s) {
-            return None;
-        }
-        let dt = system.date_time(s.parse().ok()?)?;
+        let dt = system.date_time(serial_number(s)?)?;
         let midnight = NaiveTime::MIN;
         Some(When {
             date: dt.date(),
@@ -4972,6 +4971,28 @@ mod tests {
         let (got, d, _) = dates("date,weight,unit\n46143,72.5,kg\n", &long);
         assert!(got.is_none());
         assert!(d[0].message.contains("both systems"), "{}", d[0]);
+        // A spreadsheet of a decimal-comma locale writes an unformatted date-time cell with a
+        // decimal comma (`46145,3`), in a semicolon file or quoted in a comma one: every row
+        // was dropped as an "unreadable date", and the file refused.
+        let (got, d, notes) = dates(
+            "date;weight;unit\n46143,25;72,5;kg\n46145,3;72,1;kg\n",
+            &opts,
+        );
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(
+            got.unwrap(),
+            [
+                "2026-05-01 Some(\"06:00:00\")",
+                "2026-05-03 Some(\"07:12:00\")"
+            ]
+        );
+        assert!(
+            notes[0].message.contains("(`46143,25` = 2026-05-01)"),
+            "{notes:?}"
+        );
+        let (got, d, _) = dates("date,weight,unit\n\"46143,25\",72.5,kg\n", &opts);
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01 Some(\"06:00:00\")"]);
     }
 
     #[test]
