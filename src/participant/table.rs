@@ -3870,6 +3870,18 @@ impl Cells<'_> {
                     .filter(|x| *x != o)
                     .find_map(|x| place(p, x, self.opts.program_span).map(|d| (o, x, d)))
             });
+        // A numeric date with a four-digit year in a file whose order is not known, that reads
+        // both ways, on two different days: its readings day first and month first.
+        let both_ways = numeric_parts(s)
+            .filter(|p| {
+                !p.4 && self.table.numeric_order.is_none() && self.opts.date_format == "%Y-%m-%d"
+            })
+            .and_then(|p| {
+                let span = self.opts.program_span;
+                let day = place(p, NumericOrder::DayFirst, span)?;
+                let month = place(p, NumericOrder::MonthFirst, span)?;
+                (day != month).then_some((day, month))
+            });
         match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
                 if w.time.is_some() {
@@ -3979,6 +3991,27 @@ impl Cells<'_> {
                     .hint(format!(
                         "if it is {date}, write it {} as the others or as `{date}`; otherwise (a slip of the keyboard) correct it, or remove the row",
                         order.words()
+                    )),
+                );
+                None
+            }
+            // A numeric date that reads both ways among dates that do not tell the order
+            // (ISO dates, or none that reads one way only): it was an "unreadable date" whose
+            // hint said it "reads as a date in the format `%d/%m/%Y`", one of its two readings
+            // given as the answer.
+            None if both_ways.is_some() => {
+                let (day, month) = both_ways.expect("checked");
+                diags.push(
+                    self.warn(
+                        col,
+                        format!(
+                            "a date that reads both day first ({day}) and month first ({month}), and no date of the file tells which; the row is dropped"
+                        ),
+                    )
+                    .expected("an ISO 8601 date (`2026-04-01`), or a numeric date whose day is after the 12th, which tells the order")
+                    .found(format!("`{s}`"))
+                    .hint(format!(
+                        "write this date as ISO 8601 (`{day}` or `{month}`, whichever it is), or set `input.date_format` in program.yaml if every file of the program writes dates in one order"
                     )),
                 );
                 None
@@ -4777,6 +4810,21 @@ mod tests {
                 .contains("`40000` is 2009-07-06 in the 1900 date system"),
             "{}",
             d[1]
+        );
+        // `05/04/2026` is named with both its readings, none given as the answer (its hint
+        // said it "reads as a date in the format `%d/%m/%Y`").
+        assert!(
+            d[0].message.contains(
+                "reads both day first (2026-04-05) and month first (2026-05-04), and no date of the file tells which"
+            ),
+            "{}",
+            d[0]
+        );
+        assert_eq!(d[0].found.as_deref(), Some("`05/04/2026`"));
+        assert!(
+            !d[0].hint.as_deref().unwrap().contains("%d/%m/%Y"),
+            "{}",
+            d[0]
         );
         assert!(
             d.iter()

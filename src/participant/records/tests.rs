@@ -3978,8 +3978,14 @@ fn a_numeric_date_after_a_withdrawal_in_every_reading_is_not_read() {
     assert_eq!(
         said,
         [
-            (Some(3), "unreadable date; the row is dropped"),
-            (Some(4), "unreadable date; the row is dropped"),
+            (
+                Some(3),
+                "a date that reads both day first (2026-04-05) and month first (2026-05-04), and no date of the file tells which; the row is dropped"
+            ),
+            (
+                Some(4),
+                "a date that reads both day first (2026-04-07) and month first (2026-07-04), and no date of the file tells which; the row is dropped"
+            ),
             (
                 Some(6),
                 "rows dated after consent was withdrawn (2026-04-12) are not read: stop what adds them, remove them"
