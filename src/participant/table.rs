@@ -336,6 +336,16 @@ impl Table {
         (!s.is_empty()).then_some(s)
     }
 
+    /// `row`'s fields joined by the file's delimiter, each trimmed, the whole cut to 200
+    /// characters: the row as a message quotes it.
+    pub fn row_text(&self, row: &Row) -> String {
+        let delimiter = char::from(self.delimiter).to_string();
+        let fields: Vec<&str> = (0..self.width)
+            .map_while(|i| self.raw_field(row, i).map(str::trim))
+            .collect();
+        shorten(&fields.join(&delimiter), 200)
+    }
+
     /// The header of `col` as written, when it was read under another name (`Energy` for
     /// `kcal`).
     pub fn written_as(&self, col: &str) -> Option<&str> {

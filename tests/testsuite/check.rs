@@ -21,7 +21,7 @@ const DEFECTS: &[(&str, &str)] = &[
         "decimal comma",
     ),
     (
-        "participants/duplicate-rows/intake.csv:4:",
+        "participants/duplicate-rows/intake.csv:4:1:",
         "identical to line 3 in every column, time included",
     ),
     ("participants/future-date/weights.csv:3:1:", "in the future"),

@@ -654,6 +654,16 @@ fn identical_rows_with_a_time_are_duplicates_without_one_they_count() {
         "{}",
         diags[0]
     );
+    // Named like any dropped row: column, expected and found (it had its line only).
+    assert_eq!(diags[0].column, Some(1));
+    assert_eq!(
+        diags[0].expected.as_deref(),
+        Some("each measurement once: a row that differs from line 2 in some column")
+    );
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("`2026-04-01,72,kg,07:10`, as on line 2")
+    );
     // The same with the time in the date: a duplicate too.
     let (w, diags) = weights(
         "date,weight,unit\n2026-04-01T07:10:00+02:00,72,kg\n2026-04-01T07:10:00+02:00,72,kg\n",
@@ -678,6 +688,11 @@ fn a_repeated_block_is_dropped_with_one_warning() {
             .contains("lines 6–9 (4 rows) repeat lines 2–5"),
         "{}",
         diags[0]
+    );
+    assert_eq!(diags[0].column, Some(1));
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("`2026-04-01,600` and the 3 rows below it, as on lines 2–5")
     );
     let kcal: Vec<f64> = v.iter().map(|d| d.kcal).collect();
     assert_eq!(kcal, vec![950.0, 700.0, 650.0, 500.0]);
