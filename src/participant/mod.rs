@@ -998,10 +998,17 @@ pub fn load_opened(
                                 .count()
                         })
                     });
+                    // A file refused at its header was never read row by row: its rows are
+                    // the records below that line (it gave 0 rows in the file, and a refused
+                    // export looked empty in the tidy metrics).
+                    let in_file = match (&parsed, ctx.rows_in_file()) {
+                        (None, 0) => table::records_below_first_line(&text),
+                        (_, n) => n,
+                    };
                     (
                         parsed.unwrap_or_default(),
                         RowCount {
-                            in_file: Some(ctx.rows_in_file()),
+                            in_file: Some(in_file),
                             used: Some(used),
                         },
                     )

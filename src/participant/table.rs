@@ -691,6 +691,24 @@ pub fn sniff_delimiter(text: &str) -> Option<u8> {
 
 /// Reads `text` as a CSV file of kind `spec`. Returns `None` (with an error pushed) when the
 /// file cannot be used; an empty or header-only file gives a table without rows.
+/// The records of `text` below its first line that hold a value (quoted line breaks kept in
+/// their record): the data rows of a file refused at its header, which the table reader never
+/// reached. Title lines above the header, if any, are counted among them.
+pub fn records_below_first_line(text: &str) -> usize {
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .flexible(true)
+        .from_reader(text.as_bytes());
+    reader
+        .records()
+        .take(MAX_CSV_ROWS + 1)
+        .filter(|r| {
+            r.as_ref()
+                .is_ok_and(|r| r.iter().any(|f| !f.trim().is_empty()))
+        })
+        .count()
+}
+
 pub fn read_table(
     text: &str,
     spec: &FileSpec,

@@ -943,4 +943,36 @@ fn a_refused_file_gives_its_rows_and_none_used() {
         "{:#?}",
         lp.diagnostics
     );
+    // Refused at its header (no `weight` column it knows): the reader never reached its rows,
+    // and it gave 0 rows in the file, as if the export were empty. Its three rows (one with a
+    // quoted line break in its note, one blank line) are counted.
+    let dir = participant(
+        tmp.path(),
+        "P2",
+        &[
+            ("profile.yaml", PROFILE.replace("P1", "P2").as_bytes()),
+            (
+                "weights.csv",
+                b"Date,Poids,Note\n2026-04-02,80,\"first\nweigh-in\"\n\n2026-04-03,79.8,\n\
+                  2026-04-04,79.6,\n",
+            ),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(
+        lp.diagnostics
+            .iter()
+            .any(|d| d.message.contains("missing required column")),
+        "{:#?}",
+        lp.diagnostics
+    );
+    assert_eq!(
+        lp.rows.weights,
+        RowCount {
+            in_file: Some(3),
+            used: Some(0)
+        },
+        "{:#?}",
+        lp.diagnostics
+    );
 }
