@@ -3840,8 +3840,32 @@ impl Cells<'_> {
         match self.text(col) {
             Some(s) => Some(s.to_string()),
             None => {
+                // Named like any dropped row, with what was expected and found (the column as
+                // the file heads it, when that is another name).
+                let headed = self
+                    .table
+                    .written_as(col)
+                    .map(|w| format!(" (the column headed `{w}`)"))
+                    .unwrap_or_default();
+                let index = self
+                    .table
+                    .column(col)
+                    .and_then(|i| usize::try_from(i).ok()?.checked_sub(1));
+                let found = match index {
+                    Some(i)
+                        if self
+                            .table
+                            .raw_field(self.row, i)
+                            .is_some_and(|r| !r.is_empty()) =>
+                    {
+                        "a cell of spaces only"
+                    }
+                    _ => "an empty cell",
+                };
                 diags.push(
                     self.warn(col, format!("`{col}` is empty; the row is dropped"))
+                        .expected(format!("a value in `{col}`{headed}"))
+                        .found(found)
                         .hint("fill in the value or remove the row"),
                 );
                 None

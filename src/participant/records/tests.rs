@@ -4015,3 +4015,44 @@ fn a_numeric_date_after_a_withdrawal_in_every_reading_is_not_read() {
     // The rows after the withdrawal are not counted among the file's rows either.
     assert_eq!(c.rows_in_file(), 4);
 }
+
+/// An empty required cell is named like any other dropped row: what was expected (the column as
+/// the file heads it) and what was found. It had neither.
+#[test]
+fn an_empty_required_cell_says_what_was_expected_and_found() {
+    let (v, diags) =
+        intake("Date,Calories,carbs_g\n2026-04-01,,30\n2026-04-02,  ,30\n2026-04-03,500,60\n");
+    assert_eq!(v.len(), 1, "{diags:#?}");
+    let said: Vec<_> = diags
+        .iter()
+        .map(|d| {
+            (
+                d.line,
+                d.column,
+                d.message.as_str(),
+                d.expected.as_deref(),
+                d.found.as_deref(),
+            )
+        })
+        .collect();
+    let expected = Some("a value in `kcal` (the column headed `Calories`)");
+    assert_eq!(
+        said,
+        [
+            (
+                Some(2),
+                Some(2),
+                "`kcal` is empty; the row is dropped",
+                expected,
+                Some("an empty cell")
+            ),
+            (
+                Some(3),
+                Some(2),
+                "`kcal` is empty; the row is dropped",
+                expected,
+                Some("a cell of spaces only")
+            ),
+        ]
+    );
+}
