@@ -287,7 +287,7 @@ fn parse_rows<T>(
                  it lists, or map its columns in program.yaml's `input:`",
             );
         if let Some(line) = first.line {
-            e = e.at(line, None);
+            e = e.at(line, first.column);
         }
         diags.push(e);
     }

@@ -2150,7 +2150,15 @@ fn read_records(
                     fields(rec.len()),
                     names.len()
                 ))
-                .at(line, None)
+                // The field the quote opened in, else the first beyond the header (a row too
+                // long) or the first the row lacks (too short): it had a line only.
+                .at(
+                    line,
+                    Some(match swallowed {
+                        Some((k, _)) => k as u64 + 1,
+                        None => rec.len().min(names.len()) as u64 + 1,
+                    }),
+                )
                 .expected(fields(names.len()))
                 .found(row_as_found(&rec, &delim_text));
             let split_decimal = rec.len() == names.len() + 1
@@ -4723,6 +4731,8 @@ mod tests {
             "row has 1 field but the header has 3; the row is dropped"
         );
         assert_eq!(d[0].found.as_deref(), Some("1 field: `2026-05-02;72.3;kg`"));
+        // At the first field the row lacks (it had a line only).
+        assert_eq!(d[0].column, Some(2));
     }
 
     /// A clinic export's `Height (in)` beside `Weight (lb)` is one letter from `weight`, and
@@ -5350,7 +5360,7 @@ mod tests {
         );
         assert_eq!(t.unwrap().rows.len(), 1);
         assert_eq!(d.len(), 1, "{d:?}");
-        assert_eq!(d[0].line, Some(3));
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(2)));
         assert!(
             d[0].message.ends_with(
                 "the row is dropped, and with it the 2 lines below it (lines 4–5): a quote \
@@ -5389,6 +5399,8 @@ mod tests {
             "{}",
             d[0]
         );
+        // At the first field beyond the header (it had a line only).
+        assert_eq!(d[0].column, Some(4));
         assert!(d[0].hint.as_deref().unwrap().contains("decimal comma"));
         assert_eq!(d[1].line, Some(3));
         assert!(!d[1].hint.as_deref().unwrap().contains("decimal comma"));

@@ -50,7 +50,7 @@ const DEFECTS: &[(&str, &str)] = &[
         "unknown activity `parkour drills` in 1 row",
     ),
     (
-        "participants/wrong-field-count/weights.csv:3:",
+        "participants/wrong-field-count/weights.csv:3:4:",
         "row has 4 fields",
     ),
 ];

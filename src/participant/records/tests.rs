@@ -249,7 +249,8 @@ fn a_file_of_which_no_row_reads_is_an_error() {
     );
     assert_eq!(w.as_deref().map(<[WeighIn]>::len), Some(0));
     let errors = [three_rows_dropped_error(&diags)];
-    assert_eq!(errors[0].line, Some(2));
+    // At the first dropped row's cell (it had a line only).
+    assert_eq!((errors[0].line, errors[0].column), (Some(2), Some(1)));
     assert_eq!(errors[0].file, "participants/P1/weights.csv");
     assert!(
         errors[0]
