@@ -3852,7 +3852,8 @@ impl Cells<'_> {
                 // the file heads it, when that is another name).
                 let headed = self
                     .table
-                    .written_as(col)
+                    .written_header(col)
+                    .filter(|w| *w != col)
                     .map(|w| format!(" (the column headed `{w}`)"))
                     .unwrap_or_default();
                 let index = self
