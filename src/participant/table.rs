@@ -689,8 +689,6 @@ pub fn sniff_delimiter(text: &str) -> Option<u8> {
     best.map(|b| b.2)
 }
 
-/// Reads `text` as a CSV file of kind `spec`. Returns `None` (with an error pushed) when the
-/// file cannot be used; an empty or header-only file gives a table without rows.
 /// The records of `text` below its first line that hold a value (quoted line breaks kept in
 /// their record): the data rows of a file refused at its header, which the table reader never
 /// reached. Title lines above the header, if any, are counted among them.
@@ -709,6 +707,8 @@ pub fn records_below_first_line(text: &str) -> usize {
         .count()
 }
 
+/// Reads `text` as a CSV file of kind `spec`. Returns `None` (with an error pushed) when the
+/// file cannot be used; an empty or header-only file gives a table without rows.
 pub fn read_table(
     text: &str,
     spec: &FileSpec,
