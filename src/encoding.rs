@@ -41,6 +41,14 @@ const CP1252_HIGH: [Option<char>; 32] = [
     Some('Ÿ'),
 ];
 
+/// The character Windows-1252 gives byte `b`, when it gives one.
+pub fn cp1252_char(b: u8) -> Option<char> {
+    match b {
+        0x80..=0x9F => CP1252_HIGH[usize::from(b - 0x80)],
+        _ => Some(char::from(b)),
+    }
+}
+
 /// Punctuation and symbols a profile or CSV file plausibly holds besides letters.
 const PLAUSIBLE_SYMBOLS: &str = "€‚„…‘’“”•–—™°·§´¨ª«»º±²³µ¼½¾×÷£¥¢©®\u{a0}";
 
@@ -53,12 +61,9 @@ pub fn decode_legacy(bytes: &[u8]) -> Result<(String, String), String> {
     let mut out = String::with_capacity(bytes.len() + bytes.len() / 8);
     let mut seen: Vec<char> = Vec::new();
     for &b in bytes {
-        let c = match b {
-            0x80..=0x9F => CP1252_HIGH[usize::from(b - 0x80)].ok_or_else(|| {
-                format!("the file is neither UTF-8 nor Windows-1252 (byte 0x{b:02X} has no character in either)")
-            })?,
-            _ => char::from(b),
-        };
+        let c = cp1252_char(b).ok_or_else(|| {
+            format!("the file is neither UTF-8 nor Windows-1252 (byte 0x{b:02X} has no character in either)")
+        })?;
         if c.is_control() && !matches!(c, '\t' | '\n' | '\r') {
             return Err(format!(
                 "the file holds control characters (byte 0x{b:02X}); it may be UTF-16 or binary"

@@ -865,8 +865,9 @@ pub fn datapackage(
                  dropped for their shape included (not blank lines, a repeated header, title \
                  lines above the header, the date rows of an export that writes each date on a \
                  row of its own, summary rows such as `Average` or a day's `Total`, or rows \
-                 dated after withdrew that are not read); empty when the file is absent or \
-                 cannot be read as text"
+                 dated after withdrew that are not read); for a file refused at its header, the \
+                 records below its first line that hold a value; empty when the file is absent \
+                 or cannot be read as text"
             )
         } else {
             format!(

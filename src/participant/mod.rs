@@ -669,12 +669,25 @@ fn read_input(
                         "read as Windows-1252 (input.encoding), which gives {chars}"
                     ));
                 } else {
-                    diags.push(
-                        ctx.warning(format!(
+                    // Located at the first byte that is not UTF-8, as the UTF-8 error locates it,
+                    // with the character it was read as: the warning named the characters but
+                    // not where in the file one was.
+                    let first = std::str::from_utf8(&bytes)
+                        .err()
+                        .and_then(|e| bytes.get(e.valid_up_to()))
+                        .and_then(|b| crate::encoding::cp1252_char(*b));
+                    let mut w = ctx
+                        .warning(format!(
                             "the file is not UTF-8; it was read as Windows-1252 (Western European), which gives {chars}"
                         ))
-                        .hint("check those characters, then save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8); if the program's exports are always so, set `input.encoding: windows-1252` in program.yaml"),
-                    );
+                        .expected("UTF-8 text");
+                    if let Some(line) = d.line {
+                        w = w.at(line, d.column);
+                    }
+                    if let (Some(found), Some(c)) = (&d.found, first) {
+                        w = w.found(format!("{found}, read as `{c}`"));
+                    }
+                    diags.push(w.hint("check those characters, then save the file as UTF-8 (in most editors: Save As → Encoding: UTF-8); if the program's exports are always so, set `input.encoding: windows-1252` in program.yaml"));
                 }
                 Some(Ok(text))
             }
@@ -1020,10 +1033,17 @@ pub fn load_opened(
                                 .count()
                         })
                     });
+                    // A file refused at its header was never read row by row: its rows are
+                    // the records below that line (it gave 0 rows in the file, and a refused
+                    // export looked empty in the tidy metrics).
+                    let in_file = match (&parsed, ctx.rows_in_file()) {
+                        (None, 0) => table::records_below_first_line(&text),
+                        (_, n) => n,
+                    };
                     (
                         parsed.unwrap_or_default(),
                         RowCount {
-                            in_file: Some(ctx.rows_in_file()),
+                            in_file: Some(in_file),
                             used: Some(used),
                         },
                     )

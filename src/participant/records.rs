@@ -287,7 +287,7 @@ fn parse_rows<T>(
                  it lists, or map its columns in program.yaml's `input:`",
             );
         if let Some(line) = first.line {
-            e = e.at(line, None);
+            e = e.at(line, first.column);
         }
         diags.push(e);
     }
@@ -313,11 +313,18 @@ fn report_repeats(
             end += 1;
         }
         let (first, last) = (table.rows[k].line, table.rows[end].line);
+        // Located at the row's first column, with the row as found: a duplicate was named by
+        // its line alone, with neither what was expected nor what was found.
+        let found = format!("`{}`", table.row_text(&table.rows[k]));
         let d = if end == k {
             ctx.warning(format!(
                 "identical to line {orig} in every column, time included; the row is dropped as a duplicate"
             ))
-            .at(first, None)
+            .at(first, Some(1))
+            .expected(format!(
+                "each measurement once: a row that differs from line {orig} in some column"
+            ))
+            .found(format!("{found}, as on line {orig}"))
             .hint("remove repeated rows (a file exported twice and pasted together?)")
         } else {
             let orig_last = repeats[end].expect("in the run");
@@ -325,7 +332,18 @@ fn report_repeats(
                 "lines {first}–{last} ({} rows) repeat lines {orig}–{orig_last} row for row; they are dropped as duplicates",
                 end - k + 1
             ))
-            .at(first, None)
+            .at(first, Some(1))
+            .expected(format!(
+                "each measurement once: rows that differ from lines {orig}–{orig_last}"
+            ))
+            .found(format!(
+                "{found} and the {} below it, as on lines {orig}–{orig_last}",
+                if end - k == 1 {
+                    "row".to_string()
+                } else {
+                    format!("{} rows", end - k)
+                }
+            ))
             .hint("remove the repeated block (a file exported twice and pasted together?)")
         };
         diags.push(d);

@@ -232,6 +232,9 @@ pub struct Table {
     /// sets no format, with the file's own date that tells it (as written, and its date).
     numeric_order: Option<NumericOrder>,
     numeric_example: Option<(String, NaiveDate)>,
+    /// How many of the file's numeric dates read only the other way round from its order
+    /// (each costs its row, with a warning).
+    numeric_against: usize,
     /// When dates come from date rows above the measurements: the field of the time of day,
     /// which messages about a row's date point at.
     date_rows_in: Option<usize>,
@@ -333,6 +336,16 @@ impl Table {
         (!s.is_empty()).then_some(s)
     }
 
+    /// `row`'s fields joined by the file's delimiter, each trimmed, the whole cut to 200
+    /// characters: the row as a message quotes it.
+    pub fn row_text(&self, row: &Row) -> String {
+        let delimiter = char::from(self.delimiter).to_string();
+        let fields: Vec<&str> = (0..self.width)
+            .map_while(|i| self.raw_field(row, i).map(str::trim))
+            .collect();
+        shorten(&fields.join(&delimiter), 200)
+    }
+
     /// The header of `col` as written, when it was read under another name (`Energy` for
     /// `kcal`).
     pub fn written_as(&self, col: &str) -> Option<&str> {
@@ -432,6 +445,7 @@ impl Table {
             utc_spans: Vec::new(),
             serial_dates: None,
             numeric_order: None,
+            numeric_against: 0,
             numeric_example: None,
             date_rows_in: None,
             summary_rows: RefCell::new((0, None)),
@@ -492,12 +506,16 @@ impl Table {
         // The file's own date that tells the order (a fixed example such as `05/13/2026` read
         // as if the file held it).
         if let (Some(order), Some((written, date))) = (self.numeric_order, &self.numeric_example) {
-            let only = match order {
-                NumericOrder::YearFirst => "puts every date of the file within the program",
-                _ => "reads every date of the file",
+            let only = match (order, self.numeric_against) {
+                (NumericOrder::YearFirst, _) => {
+                    "the only order that puts every date of the file within the program".to_string()
+                }
+                (_, 0) => "the only order that reads every date of the file".to_string(),
+                (_, 1) => "the order of all the file's dates but one, which reads only the other way round (dropped with a warning)".to_string(),
+                (_, n) => format!("the order of all the file's dates but {n}, which read only the other way round (each dropped with a warning)"),
             };
             parts.push(format!(
-                "numeric dates read {} (`{written}` = {date}), the only order that {only}",
+                "numeric dates read {} (`{written}` = {date}), {only}",
                 order.words()
             ));
         }
@@ -671,6 +689,24 @@ pub fn sniff_delimiter(text: &str) -> Option<u8> {
     best.map(|b| b.2)
 }
 
+/// The records of `text` below its first line that hold a value (quoted line breaks kept in
+/// their record): the data rows of a file refused at its header, which the table reader never
+/// reached. Title lines above the header, if any, are counted among them.
+pub fn records_below_first_line(text: &str) -> usize {
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .flexible(true)
+        .from_reader(text.as_bytes());
+    reader
+        .records()
+        .take(MAX_CSV_ROWS + 1)
+        .filter(|r| {
+            r.as_ref()
+                .is_ok_and(|r| r.iter().any(|f| !f.trim().is_empty()))
+        })
+        .count()
+}
+
 /// Reads `text` as a CSV file of kind `spec`. Returns `None` (with an error pushed) when the
 /// file cannot be used; an empty or header-only file gives a table without rows.
 pub fn read_table(
@@ -789,8 +825,9 @@ pub fn read_table(
         {
             Ok((serial, order)) => {
                 table.serial_dates = serial;
-                table.numeric_order = order.as_ref().map(|(o, _)| *o);
-                table.numeric_example = order.and_then(|(_, example)| example);
+                table.numeric_order = order.as_ref().map(|(o, ..)| *o);
+                table.numeric_against = order.as_ref().map_or(0, |(.., n)| *n);
+                table.numeric_example = order.and_then(|(_, example, _)| example);
                 Some(table)
             }
             Err(d) => {
@@ -849,14 +886,22 @@ impl SerialDates {
 /// years (common practice).
 pub const SERIAL_DATE_MARGIN_DAYS: i64 = 365;
 
-/// Whether `s` is written as a spreadsheet serial date: digits, and a fraction of a day.
+/// Whether `s` is written as a spreadsheet serial date: digits, and a fraction of a day after
+/// a decimal point or a decimal comma (`46297,27153`, as a spreadsheet of a decimal-comma locale
+/// writes an unformatted date-time cell; five digits before it cannot be thousands grouped).
 fn is_serial(s: &str) -> bool {
-    let (int, frac) = s.split_once('.').unwrap_or((s, "0"));
+    serial_number(s).is_some()
+}
+
+/// The number a spreadsheet serial date (see [`is_serial`]) is written as.
+fn serial_number(s: &str) -> Option<f64> {
+    let (int, frac) = s.split_once(['.', ',']).unwrap_or((s, "0"));
     // Five digits: 10000 to 99999 are the years 1927 to 2177 across the two systems.
-    int.len() == 5
+    let serial = int.len() == 5
         && !frac.is_empty()
         && int.bytes().all(|b| b.is_ascii_digit())
-        && frac.bytes().all(|b| b.is_ascii_digit())
+        && frac.bytes().all(|b| b.is_ascii_digit());
+    serial.then(|| format!("{int}.{frac}").parse().ok())?
 }
 
 /// The date system of a file's spreadsheet serial dates (`46143` for 1 May 2026): the one
@@ -881,8 +926,7 @@ fn serial_dates(
     let fits = |system: SerialDates| {
         opts.program_span.is_some_and(|(start, end)| {
             serials.iter().all(|(_, s)| {
-                s.parse::<f64>()
-                    .ok()
+                serial_number(s)
                     .and_then(|v| system.date_time(v))
                     .is_some_and(|dt| dt.date() >= start - margin && dt.date() <= end + margin)
             })
@@ -893,9 +937,7 @@ fn serial_dates(
         .filter(|&s| fits(s))
         .collect();
     let reading = |system: SerialDates| {
-        first
-            .parse::<f64>()
-            .ok()
+        serial_number(first)
             .and_then(|v| system.date_time(v))
             .map_or("no date".to_string(), |dt| dt.date().to_string())
     };
@@ -909,9 +951,7 @@ fn serial_dates(
         return Ok(None);
     }
     if let [system] = fitting.as_slice() {
-        let date = first
-            .parse::<f64>()
-            .ok()
+        let date = serial_number(first)
             .and_then(|v| system.date_time(v))
             .expect("it fits")
             .date();
@@ -2110,7 +2150,15 @@ fn read_records(
                     fields(rec.len()),
                     names.len()
                 ))
-                .at(line, None)
+                // The field the quote opened in, else the first beyond the header (a row too
+                // long) or the first the row lacks (too short): it had a line only.
+                .at(
+                    line,
+                    Some(match swallowed {
+                        Some((k, _)) => k as u64 + 1,
+                        None => rec.len().min(names.len()) as u64 + 1,
+                    }),
+                )
                 .expected(fields(names.len()))
                 .found(row_as_found(&rec, &delim_text));
             let split_decimal = rec.len() == names.len() + 1
@@ -3254,9 +3302,10 @@ impl NumericOrder {
     }
 }
 
-/// The order of a file's numeric dates, and the file's own date that tells it (none when every
-/// numeric date of the file lies after a withdrawal of consent: none of them is quoted).
-type NumericReading = (NumericOrder, Option<(String, NaiveDate)>);
+/// The order of a file's numeric dates, the file's own date that tells it (none when every
+/// numeric date of the file lies after a withdrawal of consent: none of them is quoted), and how
+/// many of its dates read only the other way round (each costs its row).
+type NumericReading = (NumericOrder, Option<(String, NaiveDate)>, usize);
 
 /// The first number, the second, the last (the year unless year first), the separator of a
 /// numeric date, and whether the last was written with one or two digits (`05/01/26`).
@@ -3403,7 +3452,7 @@ fn numeric_order(
                     .iter()
                     .all(|(_, _, p)| place(*p, *o, span).is_some())
             })
-            .map(|o| (o, None)));
+            .map(|o| (o, None, 0)));
     };
     // The orders that read every such date; orders that give every one the same date (`05/05/26`
     // either way, `26-05-26` year or day first in 2026) are one reading.
@@ -3459,7 +3508,7 @@ fn numeric_order(
                 })
                 .unwrap_or(&dates[0]);
             let date = at(*parts, *one).expect("the one order reads every such date");
-            Ok(Some((*one, Some(((*written).to_string(), date)))))
+            Ok(Some((*one, Some(((*written).to_string(), date)), 0)))
         }
         // Two-digit years that no one order puts within the program, in a file of such dates:
         // which dates they are cannot be told, and dropping every row one by one would hide
@@ -3501,6 +3550,42 @@ fn numeric_order(
                     NumericOrder::YearFirst.short_format(sep)
                 )),
             ))
+        }
+        // No order reads every date, four-digit years: nine in ten or more (common practice,
+        // as for a date column found by its cells) of the dates that read one way only read
+        // the same way (`10/13/2026` … month first), and the others only the other way round
+        // (`15/10/2026`: a date typed day first, or a slip). The
+        // file is read in the order of the nine in ten; each date written the other way costs
+        // its row, warned about at its cell. One such date made no order read every date, and
+        // every row of a US export was dropped as an "unreadable date" that named none of
+        // this. Dates that read both ways are read in the file's order, as in a file without
+        // the slip. When the dates that tell are split more evenly (two people's habits in one
+        // sheet), nothing is read on a guess: each date that does not read is warned about.
+        [] if !short => {
+            let only = |o: NumericOrder| {
+                dates
+                    .iter()
+                    .filter(|(_, _, p)| {
+                        place(*p, o, span).is_some()
+                            && NumericOrder::ALL
+                                .iter()
+                                .filter(|x| **x != o)
+                                .all(|x| place(*p, *x, span).is_none())
+                    })
+                    .collect::<Vec<_>>()
+            };
+            let (day, month) = (only(NumericOrder::DayFirst), only(NumericOrder::MonthFirst));
+            let (order, telling, against) = if day.len() >= month.len() {
+                (NumericOrder::DayFirst, day, month.len())
+            } else {
+                (NumericOrder::MonthFirst, month, day.len())
+            };
+            if telling.len() * 10 < (telling.len() + against) * 9 {
+                return Ok(None);
+            }
+            let (_, written, parts) = telling[0];
+            let date = place(*parts, order, span).expect("it reads in this order");
+            Ok(Some((order, Some(((*written).to_string(), date)), against)))
         }
         [] => Ok(None),
         // Among other dates, the few that cannot be told are warned about one by one.
@@ -3763,8 +3848,33 @@ impl Cells<'_> {
         match self.text(col) {
             Some(s) => Some(s.to_string()),
             None => {
+                // Named like any dropped row, with what was expected and found (the column as
+                // the file heads it, when that is another name).
+                let headed = self
+                    .table
+                    .written_header(col)
+                    .filter(|w| *w != col)
+                    .map(|w| format!(" (the column headed `{w}`)"))
+                    .unwrap_or_default();
+                let index = self
+                    .table
+                    .column(col)
+                    .and_then(|i| usize::try_from(i).ok()?.checked_sub(1));
+                let found = match index {
+                    Some(i)
+                        if self
+                            .table
+                            .raw_field(self.row, i)
+                            .is_some_and(|r| !r.is_empty()) =>
+                    {
+                        "a cell of spaces only"
+                    }
+                    _ => "an empty cell",
+                };
                 diags.push(
                     self.warn(col, format!("`{col}` is empty; the row is dropped"))
+                        .expected(format!("a value in `{col}`{headed}"))
+                        .found(found)
                         .hint("fill in the value or remove the row"),
                 );
                 None
@@ -3806,6 +3916,32 @@ impl Cells<'_> {
                 !p.4 && NumericOrder::ALL
                     .iter()
                     .all(|o| place(*p, *o, self.opts.program_span).is_none())
+            });
+        // A numeric date that reads only the other way round from the file's order (see
+        // [`numeric_order`]): the order and its date read that way.
+        let other_way = self
+            .table
+            .numeric_order
+            .filter(|_| self.table.numeric_against > 0)
+            .zip(numeric_parts(s))
+            .filter(|(o, p)| place(*p, *o, self.opts.program_span).is_none())
+            .and_then(|(o, p)| {
+                NumericOrder::ALL
+                    .into_iter()
+                    .filter(|x| *x != o)
+                    .find_map(|x| place(p, x, self.opts.program_span).map(|d| (o, x, d)))
+            });
+        // A numeric date with a four-digit year in a file whose order is not known, that reads
+        // both ways, on two different days: its readings day first and month first.
+        let both_ways = numeric_parts(s)
+            .filter(|p| {
+                !p.4 && self.table.numeric_order.is_none() && self.opts.date_format == "%Y-%m-%d"
+            })
+            .and_then(|p| {
+                let span = self.opts.program_span;
+                let day = place(p, NumericOrder::DayFirst, span)?;
+                let month = place(p, NumericOrder::MonthFirst, span)?;
+                (day != month).then_some((day, month))
             });
         match when.map(|w| self.utc_by_header(s, w)) {
             Some(w) => {
@@ -3887,10 +4023,63 @@ impl Cells<'_> {
                 );
                 None
             }
+            None if other_way.is_some() => {
+                let (order, other, date) = other_way.expect("checked");
+                let like = self
+                    .table
+                    .numeric_example
+                    .as_ref()
+                    .map(|(w, d)| format!(" (`{w}` = {d})"))
+                    .unwrap_or_default();
+                diags.push(
+                    self.warn(
+                        col,
+                        format!(
+                            "a date written {} while the file's other dates are {}; the row is dropped",
+                            other.words(),
+                            order.words()
+                        ),
+                    )
+                    .expected(format!(
+                        "a date written {} as the file's other dates{like}",
+                        order.words()
+                    ))
+                    .found(format!(
+                        "`{s}`: no date read {}; read {} it is {date}",
+                        order.words(),
+                        other.words()
+                    ))
+                    .hint(format!(
+                        "if it is {date}, write it {} as the others or as `{date}`; otherwise (a slip of the keyboard) correct it, or remove the row",
+                        order.words()
+                    )),
+                );
+                None
+            }
+            // A numeric date that reads both ways among dates that do not tell the order
+            // (ISO dates, or none that reads one way only): it was an "unreadable date" whose
+            // hint said it "reads as a date in the format `%d/%m/%Y`", one of its two readings
+            // given as the answer.
+            None if both_ways.is_some() => {
+                let (day, month) = both_ways.expect("checked");
+                diags.push(
+                    self.warn(
+                        col,
+                        format!(
+                            "a date that reads both day first ({day}) and month first ({month}), and no date of the file tells which; the row is dropped"
+                        ),
+                    )
+                    .expected("an ISO 8601 date (`2026-04-01`), or a numeric date whose day is after the 12th, which tells the order")
+                    .found(format!("`{s}`"))
+                    .hint(format!(
+                        "write this date as ISO 8601 (`{day}` or `{month}`, whichever it is), or set `input.date_format` in program.yaml if every file of the program writes dates in one order"
+                    )),
+                );
+                None
+            }
             None if is_serial(s) => {
                 let reading = |system: SerialDates| {
-                    s.parse::<f64>()
-                        .ok()
+                    serial_number(s)
                         .and_then(|v| system.date_time(v))
                         .map_or("no date".to_string(), |dt| dt.date().to_string())
                 };
@@ -4007,10 +4196,7 @@ impl Cells<'_> {
     /// A spreadsheet serial date, in the date system found for the file (see [`SerialDates`]).
     fn serial_date(&self, s: &str) -> Option<When> {
         let (system, _, _) = self.table.serial_dates.as_ref()?;
-        if !is_serial(s) {
-            return None;
-        }
-        let dt = system.date_time(s.parse().ok()?)?;
+        let dt = system.date_time(serial_number(s)?)?;
         let midnight = NaiveTime::MIN;
         Some(When {
             date: dt.date(),
@@ -4546,6 +4732,8 @@ mod tests {
             "row has 1 field but the header has 3; the row is dropped"
         );
         assert_eq!(d[0].found.as_deref(), Some("1 field: `2026-05-02;72.3;kg`"));
+        // At the first field the row lacks (it had a line only).
+        assert_eq!(d[0].column, Some(2));
     }
 
     /// A clinic export's `Height (in)` beside `Weight (lb)` is one letter from `weight`, and
@@ -4685,6 +4873,21 @@ mod tests {
                 .contains("`40000` is 2009-07-06 in the 1900 date system"),
             "{}",
             d[1]
+        );
+        // `05/04/2026` is named with both its readings, none given as the answer (its hint
+        // said it "reads as a date in the format `%d/%m/%Y`").
+        assert!(
+            d[0].message.contains(
+                "reads both day first (2026-04-05) and month first (2026-05-04), and no date of the file tells which"
+            ),
+            "{}",
+            d[0]
+        );
+        assert_eq!(d[0].found.as_deref(), Some("`05/04/2026`"));
+        assert!(
+            !d[0].hint.as_deref().unwrap().contains("%d/%m/%Y"),
+            "{}",
+            d[0]
         );
         assert!(
             d.iter()
@@ -4879,6 +5082,28 @@ mod tests {
         let (got, d, _) = dates("date,weight,unit\n46143,72.5,kg\n", &long);
         assert!(got.is_none());
         assert!(d[0].message.contains("both systems"), "{}", d[0]);
+        // A spreadsheet of a decimal-comma locale writes an unformatted date-time cell with a
+        // decimal comma (`46145,3`), in a semicolon file or quoted in a comma one: every row
+        // was dropped as an "unreadable date", and the file refused.
+        let (got, d, notes) = dates(
+            "date;weight;unit\n46143,25;72,5;kg\n46145,3;72,1;kg\n",
+            &opts,
+        );
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(
+            got.unwrap(),
+            [
+                "2026-05-01 Some(\"06:00:00\")",
+                "2026-05-03 Some(\"07:12:00\")"
+            ]
+        );
+        assert!(
+            notes[0].message.contains("(`46143,25` = 2026-05-01)"),
+            "{notes:?}"
+        );
+        let (got, d, _) = dates("date,weight,unit\n\"46143,25\",72.5,kg\n", &opts);
+        assert!(d.is_empty(), "{d:?}");
+        assert_eq!(got.unwrap(), ["2026-05-01 Some(\"06:00:00\")"]);
     }
 
     #[test]
@@ -5136,7 +5361,7 @@ mod tests {
         );
         assert_eq!(t.unwrap().rows.len(), 1);
         assert_eq!(d.len(), 1, "{d:?}");
-        assert_eq!(d[0].line, Some(3));
+        assert_eq!((d[0].line, d[0].column), (Some(3), Some(2)));
         assert!(
             d[0].message.ends_with(
                 "the row is dropped, and with it the 2 lines below it (lines 4–5): a quote \
@@ -5175,6 +5400,8 @@ mod tests {
             "{}",
             d[0]
         );
+        // At the first field beyond the header (it had a line only).
+        assert_eq!(d[0].column, Some(4));
         assert!(d[0].hint.as_deref().unwrap().contains("decimal comma"));
         assert_eq!(d[1].line, Some(3));
         assert!(!d[1].hint.as_deref().unwrap().contains("decimal comma"));
@@ -5896,6 +6123,95 @@ mod tests {
             "{}",
             d[0]
         );
+    }
+
+    /// One date typed the other way round (`15/10/2026` in a US export of `10/13/2026` …) made
+    /// no order read every date, and every row of the file was dropped as an "unreadable date"
+    /// that named neither the order nor the slip. Nine in ten of the dates that tell read one
+    /// way: the file is read so, and the slip costs its row, named with both readings.
+    #[test]
+    fn one_date_typed_the_other_way_round_costs_its_row_not_the_file() {
+        let opts = CsvOptions::default();
+        let read_all = |text: &str| {
+            let (t, d) = read(text, &opts);
+            assert!(d.is_empty(), "{d:?}");
+            let t = t.expect("the file is read");
+            let ctx = FileCtx::new("P1", "participants/P1/weights.csv");
+            let mut warnings = Vec::new();
+            let dates: Vec<Option<String>> = t
+                .rows
+                .iter()
+                .map(|row| {
+                    let c = Cells {
+                        table: &t,
+                        row,
+                        ctx: &ctx,
+                        opts: &opts,
+                    };
+                    c.date("date", &mut warnings).map(|x| x.to_string())
+                })
+                .collect();
+            t.describe(&opts, &ctx);
+            let notes: Vec<String> = ctx.take_notes().into_iter().map(|n| n.message).collect();
+            (notes, dates, warnings)
+        };
+        // Month first: nine dates after the 12th, 10/05 (both ways), and 15/10 (day first only).
+        let mut text = "date,weight,unit\n10/05/2026,90,kg\n".to_string();
+        for day in 13..=21 {
+            text.push_str(&format!("10/{day}/2026,89,kg\n"));
+        }
+        text.push_str("15/10/2026,88,kg\n");
+        let (notes, dates, w) = read_all(&text);
+        assert_eq!(dates[0].as_deref(), Some("2026-10-05"), "read month first");
+        assert_eq!(dates[1].as_deref(), Some("2026-10-13"));
+        assert_eq!(dates[10], None);
+        assert_eq!(dates.iter().flatten().count(), 10);
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert_eq!((w[0].line, w[0].column), (Some(12), Some(1)));
+        assert!(
+            w[0].message
+                .contains("a date written day first while the file's other dates are month first"),
+            "{}",
+            w[0]
+        );
+        assert_eq!(
+            w[0].found.as_deref(),
+            Some("`15/10/2026`: no date read month first; read day first it is 2026-10-15")
+        );
+        assert!(
+            w[0].expected
+                .as_deref()
+                .unwrap()
+                .contains("`10/13/2026` = 2026-10-13"),
+            "{}",
+            w[0]
+        );
+        assert!(
+            notes
+                .join(" ")
+                .contains("the order of all the file's dates but one"),
+            "{notes:?}"
+        );
+        // Day first with dashes, one month-first slip: the same, the other way.
+        let mut text = "date,weight,unit\n".to_string();
+        for day in 13..=22 {
+            text.push_str(&format!("{day}-10-2026,89,kg\n"));
+        }
+        text.push_str("10-23-2026,88,kg\n03-11-2026,87,kg\n");
+        let (_, dates, w) = read_all(&text);
+        assert_eq!(dates[10], None);
+        assert_eq!(dates[11].as_deref(), Some("2026-11-03"), "read day first");
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert_eq!(w[0].line, Some(12));
+        // Split more evenly (two habits in one sheet, 8 against 2): no order is taken, and
+        // each date that does not read is warned about, as before.
+        let mut text = "date,weight,unit\n".to_string();
+        for day in 13..=20 {
+            text.push_str(&format!("10/{day}/2026,89,kg\n"));
+        }
+        text.push_str("21/10/2026,88,kg\n22/10/2026,88,kg\n");
+        let (t, _) = read(&text, &opts);
+        assert_eq!(t.expect("read").numeric_order, None);
     }
 
     /// Rows that may be dated after a withdrawal of consent are not read, so they do not tell

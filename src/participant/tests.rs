@@ -239,6 +239,33 @@ fn a_windows_1252_profile_is_read_with_a_warning() {
     assert_eq!(lp.data.unwrap().profile.name.as_deref(), Some("Zoë Müller"));
 }
 
+/// A spreadsheet's CSV saved on Windows (CRLF, Windows-1252) is read with a warning located at
+/// its first byte that is not UTF-8, naming the character it was read as: the warning named
+/// the characters but not where one was, with no expected or found.
+#[test]
+fn a_windows_1252_csv_file_is_warned_about_at_its_first_such_byte() {
+    let tmp = tempfile::tempdir().unwrap();
+    let p = program(tmp.path());
+    // "pesée" in Windows-1252: é = 0xE9, on line 3 after `2026-04-03;72,1;pes`.
+    let bytes = b"Date;Weight (kg);Note\r\n2026-04-02;72,4;\r\n2026-04-03;72,1;pes\xE9e\r\n";
+    let dir = participant(
+        tmp.path(),
+        "P1",
+        &[("profile.yaml", PROFILE.as_bytes()), ("weights.csv", bytes)],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert_eq!(lp.data.as_ref().unwrap().weights.len(), 2);
+    assert_eq!(lp.diagnostics.len(), 1, "{:#?}", lp.diagnostics);
+    let w = &lp.diagnostics[0];
+    assert!(w.message.contains("read as Windows-1252"), "{w}");
+    assert_eq!((w.line, w.column), (Some(3), Some(20)), "{w}");
+    assert_eq!(w.expected.as_deref(), Some("UTF-8 text"));
+    assert_eq!(
+        w.found.as_deref(),
+        Some("byte 0xE9 at byte column 20, read as `é`")
+    );
+}
+
 /// A program whose exports are always Windows-1252 (a French spreadsheet's "CSV") got the
 /// warning for every such file in every monthly run, so every scheduled run ended with exit
 /// code 1 (tryout23). `input.encoding: windows-1252` says they are expected: the same file is
@@ -962,6 +989,38 @@ fn a_refused_file_gives_its_rows_and_none_used() {
         RowCount {
             in_file: Some(3),
             used: Some(3)
+        },
+        "{:#?}",
+        lp.diagnostics
+    );
+    // Refused at its header (no `weight` column it knows): the reader never reached its rows,
+    // and it gave 0 rows in the file, as if the export were empty. Its three rows (one with a
+    // quoted line break in its note, one blank line) are counted.
+    let dir = participant(
+        tmp.path(),
+        "P2",
+        &[
+            ("profile.yaml", PROFILE.replace("P1", "P2").as_bytes()),
+            (
+                "weights.csv",
+                b"Date,Poids,Note\n2026-04-02,80,\"first\nweigh-in\"\n\n2026-04-03,79.8,\n\
+                  2026-04-04,79.6,\n",
+            ),
+        ],
+    );
+    let lp = load_participant(&p, &dir, as_of());
+    assert!(
+        lp.diagnostics
+            .iter()
+            .any(|d| d.message.contains("missing required column")),
+        "{:#?}",
+        lp.diagnostics
+    );
+    assert_eq!(
+        lp.rows.weights,
+        RowCount {
+            in_file: Some(3),
+            used: Some(0)
         },
         "{:#?}",
         lp.diagnostics

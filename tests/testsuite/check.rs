@@ -21,7 +21,7 @@ const DEFECTS: &[(&str, &str)] = &[
         "decimal comma",
     ),
     (
-        "participants/duplicate-rows/intake.csv:4:",
+        "participants/duplicate-rows/intake.csv:4:1:",
         "identical to line 3 in every column, time included",
     ),
     ("participants/future-date/weights.csv:3:1:", "in the future"),
@@ -50,7 +50,7 @@ const DEFECTS: &[(&str, &str)] = &[
         "unknown activity `parkour drills` in 1 row",
     ),
     (
-        "participants/wrong-field-count/weights.csv:3:",
+        "participants/wrong-field-count/weights.csv:3:4:",
         "row has 4 fields",
     ),
 ];

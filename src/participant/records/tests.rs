@@ -249,7 +249,8 @@ fn a_file_of_which_no_row_reads_is_an_error() {
     );
     assert_eq!(w.as_deref().map(<[WeighIn]>::len), Some(0));
     let errors = [three_rows_dropped_error(&diags)];
-    assert_eq!(errors[0].line, Some(2));
+    // At the first dropped row's cell (it had a line only).
+    assert_eq!((errors[0].line, errors[0].column), (Some(2), Some(1)));
     assert_eq!(errors[0].file, "participants/P1/weights.csv");
     assert!(
         errors[0]
@@ -654,6 +655,16 @@ fn identical_rows_with_a_time_are_duplicates_without_one_they_count() {
         "{}",
         diags[0]
     );
+    // Named like any dropped row: column, expected and found (it had its line only).
+    assert_eq!(diags[0].column, Some(1));
+    assert_eq!(
+        diags[0].expected.as_deref(),
+        Some("each measurement once: a row that differs from line 2 in some column")
+    );
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("`2026-04-01,72,kg,07:10`, as on line 2")
+    );
     // The same with the time in the date: a duplicate too.
     let (w, diags) = weights(
         "date,weight,unit\n2026-04-01T07:10:00+02:00,72,kg\n2026-04-01T07:10:00+02:00,72,kg\n",
@@ -678,6 +689,11 @@ fn a_repeated_block_is_dropped_with_one_warning() {
             .contains("lines 6–9 (4 rows) repeat lines 2–5"),
         "{}",
         diags[0]
+    );
+    assert_eq!(diags[0].column, Some(1));
+    assert_eq!(
+        diags[0].found.as_deref(),
+        Some("`2026-04-01,600` and the 3 rows below it, as on lines 2–5")
     );
     let kcal: Vec<f64> = v.iter().map(|d| d.kcal).collect();
     assert_eq!(kcal, vec![950.0, 700.0, 650.0, 500.0]);
@@ -3987,8 +4003,14 @@ fn a_numeric_date_after_a_withdrawal_in_every_reading_is_not_read() {
     assert_eq!(
         said,
         [
-            (Some(3), "unreadable date; the row is dropped"),
-            (Some(4), "unreadable date; the row is dropped"),
+            (
+                Some(3),
+                "a date that reads both day first (2026-04-05) and month first (2026-05-04), and no date of the file tells which; the row is dropped"
+            ),
+            (
+                Some(4),
+                "a date that reads both day first (2026-04-07) and month first (2026-07-04), and no date of the file tells which; the row is dropped"
+            ),
             (
                 Some(6),
                 "rows dated after consent was withdrawn (2026-04-12) are not read: stop what adds them, remove them"
@@ -4034,5 +4056,46 @@ fn egfr_is_read_by_name_and_loinc_code_in_ml_min_per_1_73_m2() {
     assert!(
         diags[0].message.contains("unit not accepted for `egfr`"),
         "{diags:#?}"
+    );
+}
+
+/// An empty required cell is named like any other dropped row: what was expected (the column as
+/// the file heads it) and what was found. It had neither.
+#[test]
+fn an_empty_required_cell_says_what_was_expected_and_found() {
+    let (v, diags) =
+        intake("Date,Calories,carbs_g\n2026-04-01,,30\n2026-04-02,  ,30\n2026-04-03,500,60\n");
+    assert_eq!(v.len(), 1, "{diags:#?}");
+    let said: Vec<_> = diags
+        .iter()
+        .map(|d| {
+            (
+                d.line,
+                d.column,
+                d.message.as_str(),
+                d.expected.as_deref(),
+                d.found.as_deref(),
+            )
+        })
+        .collect();
+    let expected = Some("a value in `kcal` (the column headed `Calories`)");
+    assert_eq!(
+        said,
+        [
+            (
+                Some(2),
+                Some(2),
+                "`kcal` is empty; the row is dropped",
+                expected,
+                Some("an empty cell")
+            ),
+            (
+                Some(3),
+                Some(2),
+                "`kcal` is empty; the row is dropped",
+                expected,
+                Some("a cell of spaces only")
+            ),
+        ]
     );
 }
