@@ -74,14 +74,28 @@ pub fn select_participants(
                     )
                 })
                 .unwrap_or_default();
+            // A folder that is there but refused (a link, a device name, ids that differ only
+            // in case) was "no participant folder named …", which sent people looking for a
+            // folder they could see.
+            let refused: Vec<String> = unknown
+                .iter()
+                .filter_map(|u| {
+                    discovery
+                        .iter()
+                        .filter(|d| participant::is_refused_folder(d))
+                        .find(|d| refused_folder_name(d) == Some(u))
+                        .map(|d| format!("; `{u}` is there but refused: {}", d.message))
+                })
+                .collect();
             return Err(RunError::Refused {
                 message: format!(
-                    "--only: no participant folder named {} in {}; nothing was written{listed}",
+                    "--only: no usable participant folder named {} in {}{}; nothing was written{listed}",
                     unknown.join(", "),
                     plan.program
                         .root
                         .join(participant::PARTICIPANTS_DIR)
-                        .display()
+                        .display(),
+                    refused.concat()
                 ),
                 by: Blame::CommandLine,
             });
@@ -92,6 +106,43 @@ pub fn select_participants(
         dirs.retain(|d| s.contains(&d.id));
     }
     Ok((dirs, discovery))
+}
+
+/// The folder a refused-folder diagnostic of discovery names (`participants/NAME`): its id
+/// when it has one, else the name as printed.
+fn refused_folder_name(d: &Diagnostic) -> Option<&str> {
+    d.participant.as_deref().or_else(|| {
+        d.file
+            .strip_prefix(participant::PARTICIPANTS_DIR)
+            .and_then(|f| f.strip_prefix('/'))
+    })
+}
+
+/// The discovery diagnostics a run of some participants answers for: all of them, except the
+/// folders refused while listing `participants/` that it was not asked about. A run with
+/// `--only SG-003` (a cron administrator re-running one person) counted a symbolic link or a
+/// misnamed folder elsewhere among its participants with errors and ended with exit code 4,
+/// though it never looked at that folder; each shard counted every refused folder of the
+/// program, so a folder was counted once per shard. Now `--only` answers for the folders it
+/// names, a shard for the folders of its own share (by the same hash as its participants), and
+/// a whole run or a merge for every one. A shard's file still keeps every discovery
+/// diagnostic, which the merge reports.
+fn answered_discovery(
+    only: &[String],
+    shard: Option<shard::ShardSpec>,
+    discovery: &[Diagnostic],
+) -> Vec<Diagnostic> {
+    discovery
+        .iter()
+        .filter(|d| {
+            !participant::is_refused_folder(d)
+                || refused_folder_name(d).is_none_or(|name| {
+                    (only.is_empty() || only.iter().any(|o| o == name))
+                        && shard.is_none_or(|s| s.contains(name))
+                })
+        })
+        .cloned()
+        .collect()
 }
 
 /// Executes a plan: every participant, then (unless it is a shard) the group step and all
@@ -112,14 +163,10 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     // Folders refused while listing `participants/` are counted as `check` counts them (among
     // the participants, not usable) and named in the errors below; a run of some participants
     // (`--only`, a shard) counts its own.
-    let refused = if plan.only.is_empty() && plan.shard.is_none() {
-        discovery
-            .iter()
-            .filter(|d| participant::is_refused_folder(d))
-            .count()
-    } else {
-        0
-    };
+    let refused = answered_discovery(&plan.only, plan.shard, &discovery)
+        .iter()
+        .filter(|d| participant::is_refused_folder(d))
+        .count();
     tracing::info!(
         "program {}: {} participants{}{}, period {} to {}, as of {}",
         plan.program.info.id,
@@ -251,7 +298,10 @@ pub fn execute(plan: &RunPlan) -> Result<(RunSummary, Timing), RunError> {
     }
 
     if let Some(s) = plan.shard {
-        let (summary, _, _, _) = tally(&discovery, &records);
+        let (summary, _, _, _) = tally(
+            &answered_discovery(&plan.only, Some(s), &discovery),
+            &records,
+        );
         let file = ShardFile {
             format: shard::FORMAT,
             shard: s.index,
@@ -515,7 +565,8 @@ pub fn finish(
     columns: &tidy::Columns,
 ) -> Result<(RunSummary, Timing), RunError> {
     let mut timing = Timing::default();
-    let (mut summary, all_diags, rows, inputs) = tally(discovery, records);
+    let (mut summary, all_diags, rows, inputs) =
+        tally(&answered_discovery(&plan.only, None, discovery), records);
     if let Some(note) = after_end_note(plan.program.info.end, records) {
         tracing::info!("{note}");
     }

@@ -1184,6 +1184,58 @@ fn only_with_a_comma_list_says_to_repeat_the_option() {
     assert!(!r.stderr.contains("give each its own"), "{}", r.stderr);
 }
 
+/// A folder refused while listing `participants/` (here a symbolic link) is answered for by
+/// the runs that cover it: a whole run and a merge count it among the participants left out
+/// (exit 4), `--only` another participant does not (exit 0: it was exit 4, with the link's
+/// error, in a run that never looked at it), `--only` the link itself says it is there but
+/// refused, and of three shards only the one whose share holds the name counts it.
+#[test]
+fn a_refused_folder_is_counted_by_the_runs_that_cover_it_only() {
+    let t = ProgramTest::demo(6);
+    let target = t.dir.join("participants/SG-001");
+    let link = "SG-LINK";
+    std::os::unix::fs::symlink(&target, t.dir.join("participants").join(link)).unwrap();
+
+    let whole = run(&t, &out(&t, "whole"), &[]);
+    assert_eq!(whole.code, 4, "{}", whole.stderr);
+    assert!(whole.stderr.contains(link), "{}", whole.stderr);
+
+    let one = run(&t, &out(&t, "one"), &["--only", "SG-002"]);
+    assert_eq!(one.code, 0, "{}", one.stderr);
+    assert!(!one.stderr.contains(link), "{}", one.stderr);
+
+    let asked = run(&t, &out(&t, "asked"), &["--only", link]);
+    assert_eq!(asked.code, 2, "{}", asked.stderr);
+    assert!(
+        asked.stderr.contains(&format!(
+            "`{link}` is there but refused: the participant folder is a symbolic link"
+        )),
+        "{}",
+        asked.stderr
+    );
+
+    let mut shard_dirs = Vec::new();
+    for k in 1..=3 {
+        let d = out(&t, &format!("shard{k}"));
+        let r = run(&t, &d, &["--shard", &format!("{k}/3")]);
+        let holds_it = cohortpress::run::shard::shard_of(link, 3) == k;
+        assert_eq!(
+            r.code,
+            if holds_it { 4 } else { 0 },
+            "shard {k}: {}",
+            r.stderr
+        );
+        assert_eq!(r.stderr.contains(link), holds_it, "shard {k}: {}", r.stderr);
+        shard_dirs.push(d);
+    }
+    let merged = out(&t, "merged");
+    let mut args = vec!["merge", "{dir}", "--out", merged.as_str()];
+    args.extend(shard_dirs.iter().map(String::as_str));
+    let m = t.run(&args);
+    assert_eq!(m.code, 4, "{}", m.stderr);
+    assert!(m.stderr.contains(link), "{}", m.stderr);
+}
+
 /// Every line of `stderr` as JSON, or a panic naming the line that is not.
 fn json_lines(what: &str, stderr: &str) -> Vec<serde_json::Value> {
     stderr
