@@ -1176,6 +1176,30 @@ fn headline(
             None => "There are too few recent weigh-ins for a firm reading of how your weight moved over the last four weeks.".to_string(),
         },
     };
+    // A plateau the whole record shows still going at the last weigh-in (the `trend` module's
+    // `plateau_onset`, the day the trend entered the plateau band, confirmed by what followed)
+    // is shaded on the chart; where the last four weeks alone give no verdict it was named
+    // nowhere else, and the chart's shading stood beside "weigh-ins will show whether it is
+    // levelling off" (a pounds demo, SG-008) or "too few recent weigh-ins" (demo seed 11,
+    // SG-027: level from 5 June to a last weigh-in on 30 August, a month before the period's
+    // end). Said as what the record shows, dated, and for a stale record up to when.
+    let lead = match (status, trend.and_then(|t| t.plateau_onset)) {
+        (Status::Unclear, Some(onset)) => format!(
+            "{lead} Read over your whole record, your trend has stayed within the pace the program counts as a plateau since {}.",
+            fmt::date(onset)
+        ),
+        (Status::InsufficientData, Some(onset)) if joined_recently.is_none() && !no_weigh_in => {
+            match trend.and_then(|t| t.weigh_ins.points.last()) {
+                Some(last) => format!(
+                    "{lead} Up to your last weigh-in on {}, your trend had stayed within the pace the program counts as a plateau since {}.",
+                    fmt::date(last.date),
+                    fmt::date(onset)
+                ),
+                None => lead,
+            }
+        }
+        _ => lead,
+    };
     // A level or slowly moving trend read from fewer weigh-ins than one a week in the last four
     // weeks rests mostly on the weeks before (the trend carries them forward): "held steady
     // over the last four weeks" stood on one clinic weigh-in (a trial participant, May 2026).
@@ -2800,6 +2824,51 @@ mod activity_unread_tests {
             ),
             "{}",
             plain_headline(&t)
+        );
+    }
+
+    /// A plateau the whole record shows still going (the trend module's `plateau_onset`) is
+    /// named in the headline where the last four weeks give no verdict: the chart shaded it
+    /// while no sentence said so.
+    #[test]
+    fn a_plateau_the_record_shows_is_named_where_the_last_weeks_give_no_verdict() {
+        let onset = NaiveDate::from_ymd_opt(2026, 6, 5).unwrap();
+        let mut t = TrendView {
+            status: Status::Unclear,
+            plateau_onset: Some(onset),
+            ..TrendView::default()
+        };
+        t.slope_kg_per_week.value = Some(-0.27);
+        t.slope_kg_per_week.lower = Some(-0.29);
+        t.slope_kg_per_week.upper = Some(-0.24);
+        assert_eq!(
+            plain_headline(&t),
+            "Your weight has come down slowly over the last four weeks, at about −0.27 kg/week \
+             (95 % range −0.29 to −0.24 kg/week), near the pace the program counts as levelling \
+             off; more regular weigh-ins would show whether it is levelling off. Read over your \
+             whole record, your trend has stayed within the pace the program counts as a \
+             plateau since 5 Jun 2026."
+        );
+        // A record that stopped a month before the period's end: up to the last weigh-in.
+        t.status = Status::InsufficientData;
+        t.weigh_ins.points = vec![cohortpress_metric_api::Point {
+            date: NaiveDate::from_ymd_opt(2026, 8, 30).unwrap(),
+            value: 95.0,
+            lower: None,
+            upper: None,
+        }];
+        assert_eq!(
+            plain_headline(&t),
+            "There are too few recent weigh-ins for a firm reading of how your weight moved over \
+             the last four weeks. Up to your last weigh-in on 30 Aug 2026, your trend had stayed \
+             within the pace the program counts as a plateau since 5 Jun 2026."
+        );
+        // No plateau going on: nothing added.
+        t.plateau_onset = None;
+        assert_eq!(
+            plain_headline(&t),
+            "There are too few recent weigh-ins for a firm reading of how your weight moved over \
+             the last four weeks."
         );
     }
 
