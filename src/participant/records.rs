@@ -2929,6 +2929,24 @@ pub fn parse_labs(
             // `abc` splits into no number and the "unit" `abc`: the message quotes the cell.
             LabName::One(t) if num_text.trim().is_empty() => vec![(t, value_text)],
             LabName::One(t) => vec![(t, num_text)],
+            // A bound inside the pair (`180/>110`, `>180/>110`) or a number left out (`180/`):
+            // the diastolic was "not a number", found `` (the bound had been read as a unit).
+            LabName::BloodPressure
+                if value_text.contains(['<', '>', '≤', '≥'])
+                    || num_text
+                        .split_once('/')
+                        .is_some_and(|(s, d)| s.trim().is_empty() || d.trim().is_empty()) =>
+            {
+                d.push(
+                    c.warn(
+                        "value",
+                        "blood pressure needs both numbers, with any bound before the pair; the row is dropped",
+                    )
+                    .expected("systolic/diastolic, e.g. `128/82`, or a bound before the pair, `>180/110`, which bounds both")
+                    .found(format!("`{raw}`")),
+                );
+                return None;
+            }
             LabName::BloodPressure => match num_text.split_once('/') {
                 Some((sys, dia)) => vec![
                     (LabTest::SystolicBp, sys.trim()),

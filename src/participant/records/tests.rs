@@ -1728,6 +1728,40 @@ fn censored_lab_values_are_read_as_bounds() {
     assert!(v[6..].iter().all(|l| l.unit_as_written == "mmHg"));
 }
 
+/// A bound inside a blood pressure pair (`180/>110`) or a pair with a number left out is
+/// dropped with the cell as found and where a bound goes: the bound was read as a unit and the
+/// diastolic as an empty number, "not a number in `value`", found ``.
+#[test]
+fn a_blood_pressure_pair_with_a_bound_inside_says_where_the_bound_goes() {
+    let mut diags = Vec::new();
+    let v = parse_labs(
+        "date,test,value,unit\n2026-04-01,blood_pressure,180/>110,mmHg\n2026-04-02,blood_pressure,>180/>110,mmHg\n2026-04-03,blood_pressure,180/,mmHg\n2026-04-04,blood_pressure,128/82,mmHg\n",
+        &CsvOptions::default(),
+        &ctx("labs.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    assert_eq!(v.len(), 2, "{diags:#?}");
+    let said: Vec<(Option<u64>, Option<&str>)> =
+        diags.iter().map(|d| (d.line, d.found.as_deref())).collect();
+    assert_eq!(
+        said,
+        [
+            (Some(2), Some("`180/>110`")),
+            (Some(3), Some("`>180/>110`")),
+            (Some(4), Some("`180/`")),
+        ]
+    );
+    assert!(
+        diags.iter().all(|d| d
+            .expected
+            .as_deref()
+            .is_some_and(|e| e.contains("a bound before the pair, `>180/110`"))),
+        "{diags:#?}"
+    );
+}
+
 /// A `<` bound below the plausible range (an assay's lower limit: `<2.5 %`, `<0.5 mmol/L`) is
 /// a true statement about the value, as a `<` bound within the range is: it was dropped as an
 /// implausible value. It is kept as the bound, with a warning that says so; a plain value
