@@ -302,6 +302,20 @@ pub fn build(
                 left.filter(|w| *w < plan.period.from),
                 unread == ActivityUnread::NoLog,
             );
+            // A record that stopped four weeks or more before the period's end: "Where you
+            // stand" gives "Weight at your last weigh-in (27 Aug 2026, trend)", and resting
+            // energy is at that weight, yet it read "at your current weight" (sample, September
+            // 2026, SG-015 and SG-019), as it did for someone who left before the period until
+            // that was mended.
+            if v.trend
+                .as_ref()
+                .and_then(|t| t.days_since_last_weigh_in)
+                .is_some_and(|d| d >= guidance::RECENT_WEIGH_IN_DAYS)
+            {
+                for k in view.items.iter_mut().filter(|k| k.label == RESTING_LABEL) {
+                    k.label = RESTING_LABEL_LEFT.into();
+                }
+            }
             // The weeks the energy module read off a trend: for someone who stopped the
             // program, it was given the records up to the day they left, whose trend ends at
             // the last weigh-in on or before it, not the trend the chart draws through their
@@ -1660,7 +1674,8 @@ fn weight_chart_alt(
 /// the energy module's window).
 const RESTING_LABEL: &str = "Resting energy (estimated, at your current weight)";
 
-/// The same for someone who left before the period began: at the weight they last had.
+/// The same for someone who left before the period began, or whose last weigh-in is four weeks
+/// or more before its end: at the weight they last had.
 const RESTING_LABEL_LEFT: &str = "Resting energy (estimated, at your last weight)";
 
 /// The days the energy module's window covers, in words: `last 4 weeks`, `last 30 days`, or,

@@ -588,8 +588,9 @@ fn the_energy_section_explains_an_implied_intake_only_where_it_shows_one() {
         .find("aria-labelledby=\"h-energy\"")
         .expect("energy section")..];
     let energy = &energy[..energy.find("</section>").expect("its end")];
+    // At the weight of the last weigh-in, in April, as "Where you stand" says.
     assert!(
-        energy.contains("Resting energy (estimated, at your current weight)"),
+        energy.contains("Resting energy (estimated, at your last weight)"),
         "{energy}"
     );
     assert!(!energy.contains("Intake implied by your weight trend"));
@@ -1760,6 +1761,24 @@ fn every_participant_report_shows_the_tidy_figures() {
             Some(fmt::weight(kg, UnitSystem::Metric)),
             "{id}"
         );
+        // Resting energy is at the weight the row above names: the last one, not a current
+        // one, when that row is dated (it read "at your current weight" below "Weight at your
+        // last weigh-in (27 Aug 2026, trend)", SG-015).
+        if num(row, "energy.rmr_kcal_per_day").is_some() {
+            let (shown, other) = if label.starts_with("Weight at your last weigh-in") {
+                ("at your last weight", "at your current weight")
+            } else {
+                ("at your current weight", "at your last weight")
+            };
+            assert!(
+                html.contains(&format!("Resting energy (estimated, {shown})")),
+                "{id}: {shown}"
+            );
+            assert!(
+                !html.contains(&format!("Resting energy (estimated, {other})")),
+                "{id}: {other}"
+            );
+        }
         // The change in kg is the difference of the two weights as printed above it, so the
         // three figures add up (SG-046 of the 150-person demo read 86.0 kg, 83.2 kg and
         // "−2.9 kg" for a change of −2.87); the percent is the tidy one.
