@@ -1285,6 +1285,40 @@ mod tests {
     use super::*;
     use cohortpress_metric_api::TextValue;
 
+    /// A participant of the test module's shape whose only output is the text `name` of module
+    /// `module`.
+    fn with_one_text(module: &str, name: &str, value: &str) -> TidyParticipant {
+        TidyParticipant {
+            participant_id: "XP-01".into(),
+            enrolled: "2027-03-01".into(),
+            withdrew: None,
+            withdrawal_reason: None,
+            started: true,
+            completer: true,
+            groups: BTreeMap::new(),
+            scalars: vec![],
+            texts: vec![(
+                module.into(),
+                TextValue {
+                    name: name.into(),
+                    value: value.into(),
+                    label: String::new(),
+                },
+            )],
+            weekly_rows: vec![],
+            table_rows: vec![],
+            flags: vec![],
+            flags_at_follow_up: vec![],
+            failures: vec![],
+            weights_rows_in_file: None,
+            weights_rows_used: None,
+            intake_rows_in_file: None,
+            intake_rows_used: None,
+            activity_rows_in_file: None,
+            activity_rows_used: None,
+        }
+    }
+
     /// A text column gets its declared codes as an `enum` constraint only while every value
     /// written is one of them: an external module that writes a code it did not declare gets
     /// a column described as free text, not a constraint its own file fails.
@@ -1306,35 +1340,7 @@ mod tests {
             requires: vec![],
         };
         let specs = [spec];
-        let person = |dir: &str| TidyParticipant {
-            participant_id: "XP-01".into(),
-            enrolled: "2027-03-01".into(),
-            withdrew: None,
-            withdrawal_reason: None,
-            started: true,
-            completer: true,
-            groups: BTreeMap::new(),
-            scalars: vec![],
-            texts: vec![(
-                "ext".into(),
-                TextValue {
-                    name: "dir".into(),
-                    value: dir.into(),
-                    label: String::new(),
-                },
-            )],
-            weekly_rows: vec![],
-            table_rows: vec![],
-            flags: vec![],
-            flags_at_follow_up: vec![],
-            failures: vec![],
-            weights_rows_in_file: None,
-            weights_rows_used: None,
-            intake_rows_in_file: None,
-            intake_rows_used: None,
-            activity_rows_in_file: None,
-            activity_rows_used: None,
-        };
+        let person = |dir: &str| with_one_text("ext", "dir", dir);
         let mut columns = Columns::new(vec!["ext".into()]);
         columns.observe(&person("up"));
         columns.observe(&person(""));
@@ -1354,35 +1360,7 @@ mod tests {
     fn only_iso_days_keep_a_text_column_typed_date() {
         let written = |value: &str| {
             let mut c = Columns::new(vec!["dt".into()]);
-            c.observe(&TidyParticipant {
-                participant_id: "XP-01".into(),
-                enrolled: "2027-03-01".into(),
-                withdrew: None,
-                withdrawal_reason: None,
-                started: true,
-                completer: true,
-                groups: BTreeMap::new(),
-                scalars: vec![],
-                texts: vec![(
-                    "dt".into(),
-                    TextValue {
-                        name: "day".into(),
-                        value: value.into(),
-                        label: String::new(),
-                    },
-                )],
-                weekly_rows: vec![],
-                table_rows: vec![],
-                flags: vec![],
-                flags_at_follow_up: vec![],
-                failures: vec![],
-                weights_rows_in_file: None,
-                weights_rows_used: None,
-                intake_rows_in_file: None,
-                intake_rows_used: None,
-                activity_rows_in_file: None,
-                activity_rows_used: None,
-            });
+            c.observe(&with_one_text("dt", "day", value));
             !c.not_dates.contains(&("dt".into(), "day".into()))
         };
         for day in ["2027-03-01", "0001-01-01", "9999-12-31", "2028-02-29", ""] {
