@@ -532,6 +532,13 @@ pub fn run_check_with(
                 _ => exit_code::USAGE,
             };
         }
+        // Loaded once, for both the check that they can be used and the check of what they
+        // print (`template_problems`).
+        let templates = if refused.is_none() {
+            Some(crate::report::templates::load_checked(prog))
+        } else {
+            None
+        };
         if let Some(m) = refused {
             let mut d = Diagnostic::error("program.yaml", m).field("report.out");
             if let Some((line, col)) =
@@ -542,14 +549,14 @@ pub fn run_check_with(
             report.program = Err(vec![d]);
             report.participants.clear();
             report.discovery.clear();
-        } else if let Err(d) = crate::report::templates::load_checked(prog) {
+        } else if let Some(Err(d)) = &templates {
             // The report templates of the program's own (`report.templates`) are loaded as a
             // run loads them before it starts: a template that does not parse, a partial loop,
             // a link or code in a template stopped every run of a program `check` had passed.
-            report.program = Err(vec![d]);
+            report.program = Err(vec![d.clone()]);
             report.participants.clear();
             report.discovery.clear();
-        } else {
+        } else if let Some(Ok(templates)) = &templates {
             if let Some((folder, e)) = target.write_problem() {
                 report.output.push(
                     Diagnostic::error(
@@ -570,7 +577,7 @@ pub fn run_check_with(
                     )),
                 );
             }
-            report.templates = template_problems(prog, &report.participants, as_of);
+            report.templates = template_problems(prog, templates, &report.participants, as_of);
             match ledger_problems(prog, opts.state.as_deref(), opts.out.as_deref()) {
                 Ok(diags) => report.ledger = diags,
                 // `--state` refused as `run` refuses it: a wrong command line (exit 2).
@@ -610,14 +617,12 @@ pub fn run_check_with(
 /// participant, with its module results, in the period a run without `--period` reports.
 fn template_problems(
     prog: &crate::program::Program,
+    templates: &crate::report::templates::TemplateSet,
     participants: &[crate::participant::LoadedParticipant],
     as_of: chrono::NaiveDate,
 ) -> Vec<Diagnostic> {
     let data = participants.iter().find_map(|p| p.data.as_ref());
-    let (Ok(templates), Ok((modules, _))) = (
-        crate::report::templates::TemplateSet::load(prog),
-        crate::modules::build_module_set(prog),
-    ) else {
+    let Ok((modules, _)) = crate::modules::build_module_set(prog) else {
         return Vec::new();
     };
     let Ok(period) =
@@ -632,7 +637,7 @@ fn template_problems(
         as_of,
     };
     // The run's words: `RunError::Render` of the same error.
-    let message = match crate::report::check_template_cautions(&templates, &scope, data) {
+    let message = match crate::report::check_template_cautions(templates, &scope, data) {
         Ok(()) => return Vec::new(),
         Err(crate::report::CautionsMissing::Participant(e)) => {
             let id = data.map(|d| d.profile.id.as_str()).unwrap_or_default();

@@ -122,7 +122,6 @@ impl TemplateSet {
                 }
             }
         }
-        check_render_depth(&files)?;
         let mut hb = Handlebars::new();
         hb.set_strict_mode(true);
         hb.set_prevent_indent(true);
@@ -131,13 +130,48 @@ impl TemplateSet {
         // reorder the report around it. The PDF is laid out from this HTML.
         hb.register_escape_fn(|s| handlebars::html_escape(&crate::render::neutralise(s)));
         register_helpers(&mut hb);
-        let mut sources = Vec::new();
-        for (name, text, src) in &files {
+        // Each file is compiled once, by its registration, and the depth check reads the
+        // templates registered: handlebars reads a template in time that grows with the square
+        // of its size, and the check compiled every file a second time itself. A file whose
+        // name a later file of the set takes again (`x.hbs` and `partials/x.hbs`) is no longer
+        // registered by then; it alone is compiled again, so that the check still covers it.
+        // The check still decides before a file that does not parse is reported.
+        let key_of = |name: &str| -> String {
             let key = name.trim_end_matches(".hbs");
-            let key = key.strip_prefix("partials/").unwrap_or(key);
-            hb.register_template_string(key, text)
-                .map_err(|e| TemplateError::Parse(format!("{src} ({name}): {e}")))?;
+            key.strip_prefix("partials/").unwrap_or(key).to_string()
+        };
+        let mut sources = Vec::new();
+        let mut registered = Vec::with_capacity(files.len());
+        let mut unparsed = None;
+        for (name, text, src) in &files {
+            let key = key_of(name);
+            match hb.register_template_string(&key, text) {
+                Ok(()) => registered.push(Some(key)),
+                Err(e) => {
+                    registered.push(None);
+                    unparsed.get_or_insert_with(|| {
+                        TemplateError::Parse(format!("{src} ({name}): {e}"))
+                    });
+                }
+            }
             sources.push((name.clone(), src.clone()));
+        }
+        let mut compiled = Vec::with_capacity(files.len());
+        for (i, ((name, text, _), key)) in files.iter().zip(&registered).enumerate() {
+            let Some(key) = key else { continue };
+            let taken_again = registered[i + 1..].iter().flatten().any(|k| k == key);
+            let template = match hb.get_template(key) {
+                Some(t) if !taken_again => std::borrow::Cow::Borrowed(t),
+                _ => match handlebars::template::Template::compile(text) {
+                    Ok(t) => std::borrow::Cow::Owned(t),
+                    Err(_) => continue,
+                },
+            };
+            compiled.push((name.as_str(), key.clone(), template));
+        }
+        check_render_depth(compiled, &sources)?;
+        if let Some(e) = unparsed {
+            return Err(e);
         }
         let overridden = sources.iter().any(|(_, src)| src != "built-in");
         let override_texts = files
@@ -943,20 +977,25 @@ pub const MAX_RENDER_DEPTH: usize = 64;
 /// `{{#> name}}…{{/name}}`, and inline partials (`{{#*inline "name"}}…{{/inline}}`). A text
 /// scan for `{{>` missed all but the first, and an inline partial calling itself overflowed
 /// the stack. A file that does not parse is left to its registration, which says why.
-fn check_render_depth(files: &[(String, String, String)]) -> Result<(), TemplateError> {
+///
+/// `compiled` holds (file name, template name, template) for each file that parses, in the
+/// order of the set's files; `files` (file name, where it comes from) every file of the set.
+fn check_render_depth(
+    mut compiled: Vec<(
+        &str,
+        String,
+        std::borrow::Cow<'_, handlebars::template::Template>,
+    )>,
+    files: &[(String, String)],
+) -> Result<(), TemplateError> {
     use handlebars::template::{Template, TemplateElement};
     use std::collections::HashMap;
     // Partials first, so that a partial nested too deep is named itself rather than the page
     // that calls it.
-    let mut ordered: Vec<&(String, String, String)> = files.iter().collect();
-    ordered.sort_by_key(|(name, ..)| !name.starts_with("partials/"));
-    let parsed: Vec<(String, Template)> = ordered
-        .into_iter()
-        .filter_map(|(name, text, _)| {
-            let key = name.trim_end_matches(".hbs");
-            let key = key.strip_prefix("partials/").unwrap_or(key);
-            Template::compile(text).ok().map(|t| (key.to_string(), t))
-        })
+    compiled.sort_by_key(|(name, ..)| !name.starts_with("partials/"));
+    let parsed: Vec<(String, &Template)> = compiled
+        .iter()
+        .map(|(_, key, t)| (key.clone(), t.as_ref()))
         .collect();
     // Every body a name can stand for: the file registered under it and the inline partials
     // defined under it anywhere (an inline partial shadows a file's only where it is defined;
@@ -996,7 +1035,7 @@ fn check_render_depth(files: &[(String, String, String)]) -> Result<(), Template
             }
         }
     }
-    for (key, t) in &parsed {
+    for &(ref key, t) in &parsed {
         bodies.entry(key.clone()).or_default().push(t);
         let mut inline = Vec::new();
         inline_definitions(t, &mut inline);
@@ -1097,11 +1136,11 @@ fn check_render_depth(files: &[(String, String, String)]) -> Result<(), Template
                  of the thread that renders it); flatten it",
                 files
                     .iter()
-                    .find(|(n, ..)| {
+                    .find(|(n, _)| {
                         let k = n.trim_end_matches(".hbs");
                         k.strip_prefix("partials/").unwrap_or(k) == key
                     })
-                    .map_or(key.as_str(), |(_, _, src)| src.as_str())
+                    .map_or(key.as_str(), |(_, src)| src.as_str())
             )));
         }
     }

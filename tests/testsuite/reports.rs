@@ -1510,6 +1510,36 @@ fn every_way_of_calling_a_partial_counts_toward_a_loop() {
     }
 }
 
+/// The loop and depth check reads the templates as they are registered (each file compiled
+/// once). It still covers a file whose name a later file takes again (`x.hbs` and
+/// `partials/x.hbs` are both the template `x`; only the later one stays registered), in either
+/// order, and it still decides before a file that does not parse is reported.
+#[test]
+fn the_loop_check_covers_every_file_and_comes_before_a_file_that_does_not_parse() {
+    for files in [
+        vec![("x.hbs", "{{> x}}"), ("partials/x.hbs", "plain")],
+        vec![("x.hbs", "plain"), ("partials/x.hbs", "{{> x}}")],
+    ] {
+        let err = load_templates(&files).err().expect("refused");
+        assert!(err.contains("x → x"), "{files:?}: {err}");
+    }
+    let err = load_templates(&[
+        ("partials/a.hbs", "A {{> a}}"),
+        ("partials/b.hbs", "B {{#if open}} never closed"),
+    ])
+    .err()
+    .expect("refused");
+    assert!(err.contains("a → a"), "{err}");
+    // Without the loop, the file that does not parse is named.
+    let err = load_templates(&[
+        ("partials/a.hbs", "A"),
+        ("partials/b.hbs", "B {{#if open}} never closed"),
+    ])
+    .err()
+    .expect("refused");
+    assert!(err.contains("b.hbs"), "{err}");
+}
+
 /// Blocks and partials nested 2,000 deep overflowed a worker thread's stack while the page was
 /// rendered (exit code 134; attack24). Nesting is counted through the partials a template calls
 /// and refused past `MAX_RENDER_DEPTH`; the built-in templates nest far less.

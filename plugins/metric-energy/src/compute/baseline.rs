@@ -191,6 +191,64 @@ fn log_day_cv(p: &Person<'_>, bounds: &[(NaiveDate, NaiveDate)]) -> f64 {
     ((ss + LOG_CV_PRIOR_DAYS * LOG_DAY_CV * LOG_DAY_CV) / (df + LOG_CV_PRIOR_DAYS)).sqrt()
 }
 
+/// The joint log posterior (up to a constant) of EI₀ and the under-reporting share over the
+/// grid, cell `(k * EI0_STEPS + i) * n_u + j` for block wobble `k`, EI₀ step `i` and share step
+/// `j`, with its largest value. `prior`, `sd0`: EI₀'s prior mean and SD; `u_prior`, `u_sd`:
+/// the share's.
+fn log_posterior_grid(
+    blocks: &[Block],
+    prior: f64,
+    sd0: f64,
+    u_prior: f64,
+    u_sd: f64,
+) -> (Vec<f64>, f64) {
+    let n_u = ((U_MAX - U_MIN) / U_STEP).round() as usize + 1;
+    let ei_at =
+        |i: usize| prior + sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0);
+    let u_at = |j: usize| U_MIN + U_STEP * j as f64;
+    let n_k = UNDERREPORT_BLOCK_SDS.len();
+    let cell = |k: usize, i: usize, j: usize| (k * EI0_STEPS + i) * n_u + j;
+    let mut logp = vec![0.0_f64; n_k * EI0_STEPS * n_u];
+    let mut best = f64::NEG_INFINITY;
+    // Each block's variance depends on u and σ_u only: (1/V, ln V) once per pair.
+    let mut inv_ln = vec![(0.0_f64, 0.0_f64); blocks.len()];
+    // The EI₀ grid and its prior term, once. For each (σ_u, u) the EI₀ column is summed a
+    // block at a time over the whole column (the same operations in the same order for each
+    // cell as one cell at a time, so the same bits; independent cells, so the compiler can
+    // do two at once).
+    let eis: Vec<f64> = (0..EI0_STEPS).map(ei_at).collect();
+    let prior_terms: Vec<f64> = eis
+        .iter()
+        .map(|&ei0| 0.5 * ((ei0 - prior) / sd0).powi(2))
+        .collect();
+    let mut column = vec![0.0_f64; EI0_STEPS];
+    for (k, &wobble) in UNDERREPORT_BLOCK_SDS.iter().enumerate() {
+        for j in 0..n_u {
+            let u = u_at(j);
+            let keep = 1.0 - u;
+            let lp_u = -0.5 * ((u - u_prior) / u_sd).powi(2);
+            for (b, slot) in blocks.iter().zip(inv_ln.iter_mut()) {
+                let v = b.logged_var + keep * keep * b.change_var + (wobble * b.logged).powi(2);
+                *slot = (1.0 / v, v.ln());
+            }
+            for (lp, term) in column.iter_mut().zip(&prior_terms) {
+                *lp = lp_u - term;
+            }
+            for (b, &(inv, ln)) in blocks.iter().zip(&inv_ln) {
+                for (lp, &ei0) in column.iter_mut().zip(&eis) {
+                    let r = b.logged - keep * (ei0 + b.change);
+                    *lp -= 0.5 * (ln + r * r * inv);
+                }
+            }
+            for (i, &lp) in column.iter().enumerate() {
+                logp[cell(k, i, j)] = lp;
+                best = best.max(lp);
+            }
+        }
+    }
+    (logp, best)
+}
+
 /// EI₀ and the under-reporting share u from the prior, the food logs and the weight trend.
 ///
 /// # Method
@@ -237,31 +295,8 @@ pub(super) fn baseline_requirement(
     let u_at = |j: usize| U_MIN + U_STEP * j as f64;
     let n_k = UNDERREPORT_BLOCK_SDS.len();
     let cell = |k: usize, i: usize, j: usize| (k * EI0_STEPS + i) * n_u + j;
-    let mut logp = vec![0.0_f64; n_k * EI0_STEPS * n_u];
-    let mut best = f64::NEG_INFINITY;
-    // Each block's variance depends on u and σ_u only: (1/V, ln V) once per pair.
-    let mut inv_ln = vec![(0.0_f64, 0.0_f64); blocks.len()];
-    for (k, &wobble) in UNDERREPORT_BLOCK_SDS.iter().enumerate() {
-        for j in 0..n_u {
-            let u = u_at(j);
-            let keep = 1.0 - u;
-            let lp_u = -0.5 * ((u - s.underreport_prior) / s.underreport_sd).powi(2);
-            for (b, slot) in blocks.iter().zip(inv_ln.iter_mut()) {
-                let v = b.logged_var + keep * keep * b.change_var + (wobble * b.logged).powi(2);
-                *slot = (1.0 / v, v.ln());
-            }
-            for i in 0..EI0_STEPS {
-                let ei0 = ei_at(i);
-                let mut lp = lp_u - 0.5 * ((ei0 - prior) / sd0).powi(2);
-                for (b, (inv, ln)) in blocks.iter().zip(&inv_ln) {
-                    let r = b.logged - keep * (ei0 + b.change);
-                    lp -= 0.5 * (ln + r * r * inv);
-                }
-                logp[cell(k, i, j)] = lp;
-                best = best.max(lp);
-            }
-        }
-    }
+    let (logp, best) =
+        log_posterior_grid(&blocks, prior, sd0, s.underreport_prior, s.underreport_sd);
     let mut w_total = 0.0;
     let mut m_e = 0.0;
     let mut m_e2 = 0.0;
@@ -298,5 +333,84 @@ pub(super) fn baseline_requirement(
         ei0: mean,
         var,
         underreport: Some((u_mean, quantile(0.025), quantile(0.975))),
+    }
+}
+
+#[cfg(test)]
+mod grid_tests {
+    use super::*;
+
+    /// The grid as it was computed before the EI₀ column was summed a block at a time: one cell
+    /// after another, each summing its blocks in order.
+    fn grid_cell_by_cell(
+        blocks: &[Block],
+        prior: f64,
+        sd0: f64,
+        u_prior: f64,
+        u_sd: f64,
+    ) -> (Vec<f64>, f64) {
+        let n_u = ((U_MAX - U_MIN) / U_STEP).round() as usize + 1;
+        let ei_at =
+            |i: usize| prior + sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0);
+        let u_at = |j: usize| U_MIN + U_STEP * j as f64;
+        let cell = |k: usize, i: usize, j: usize| (k * EI0_STEPS + i) * n_u + j;
+        let mut logp = vec![0.0_f64; UNDERREPORT_BLOCK_SDS.len() * EI0_STEPS * n_u];
+        let mut best = f64::NEG_INFINITY;
+        let mut inv_ln = vec![(0.0_f64, 0.0_f64); blocks.len()];
+        for (k, &wobble) in UNDERREPORT_BLOCK_SDS.iter().enumerate() {
+            for j in 0..n_u {
+                let u = u_at(j);
+                let keep = 1.0 - u;
+                let lp_u = -0.5 * ((u - u_prior) / u_sd).powi(2);
+                for (b, slot) in blocks.iter().zip(inv_ln.iter_mut()) {
+                    let v = b.logged_var + keep * keep * b.change_var + (wobble * b.logged).powi(2);
+                    *slot = (1.0 / v, v.ln());
+                }
+                for i in 0..EI0_STEPS {
+                    let ei0 = ei_at(i);
+                    let mut lp = lp_u - 0.5 * ((ei0 - prior) / sd0).powi(2);
+                    for (b, (inv, ln)) in blocks.iter().zip(&inv_ln) {
+                        let r = b.logged - keep * (ei0 + b.change);
+                        lp -= 0.5 * (ln + r * r * inv);
+                    }
+                    logp[cell(k, i, j)] = lp;
+                    best = best.max(lp);
+                }
+            }
+        }
+        (logp, best)
+    }
+
+    /// The reports print figures from this grid: summing the column a block at a time must give
+    /// every cell bit for bit what one cell at a time gave, or the outputs change.
+    #[test]
+    fn the_grid_summed_by_column_is_bit_for_bit_the_grid_summed_by_cell() {
+        for (n, seed) in [(1_usize, 1_u64), (4, 7), (26, 2026), (40, 99)] {
+            let mut x = seed;
+            let mut next = || {
+                // xorshift64: fixed pseudo-random values, the same on every run.
+                x ^= x << 13;
+                x ^= x >> 7;
+                x ^= x << 17;
+                (x >> 11) as f64 / (1u64 << 53) as f64
+            };
+            let blocks: Vec<Block> = (0..n)
+                .map(|_| Block {
+                    logged: 1_400.0 + 1_200.0 * next(),
+                    logged_var: 10_000.0 + 90_000.0 * next(),
+                    change: -600.0 + 900.0 * next(),
+                    change_var: 5_000.0 + 60_000.0 * next(),
+                })
+                .collect();
+            let (prior, sd0) = (2_300.0 + 400.0 * next(), 180.0 + 120.0 * next());
+            let (u_prior, u_sd) = (0.1 + 0.2 * next(), 0.1 + 0.2 * next());
+            let (a, best_a) = log_posterior_grid(&blocks, prior, sd0, u_prior, u_sd);
+            let (b, best_b) = grid_cell_by_cell(&blocks, prior, sd0, u_prior, u_sd);
+            assert_eq!(best_a.to_bits(), best_b.to_bits(), "{n} blocks");
+            assert_eq!(a.len(), b.len());
+            for (i, (p, q)) in a.iter().zip(&b).enumerate() {
+                assert_eq!(p.to_bits(), q.to_bits(), "{n} blocks, cell {i}: {p} vs {q}");
+            }
+        }
     }
 }
