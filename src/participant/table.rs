@@ -608,7 +608,14 @@ impl Table {
                 }
             }
             let (len, j) = longest;
-            if len >= REPEATED_BLOCK_ROWS {
+            // A block of one row over and over is no evidence of a paste: six identical
+            // `2026-04-01,Coffee,40` rows (six coffees, no time) had their last three dropped
+            // as "repeating" the first three, while two to five such rows all counted. Such a
+            // run is left to the rule for identical rows (counted without a time).
+            let one_row_repeated = (1..len).all(|k| {
+                hashes[i + k] == hashes[i] && self.same_row(&self.rows[i + k], &self.rows[i])
+            });
+            if len >= REPEATED_BLOCK_ROWS && !one_row_repeated {
                 for k in 0..len {
                     dup[i + k] = Some(self.rows[j + k].line);
                 }

@@ -705,6 +705,39 @@ fn a_repeated_block_is_dropped_with_one_warning() {
 }
 
 #[test]
+fn a_run_of_one_identical_row_is_no_repeated_block() {
+    // Six coffees of 40 kcal on one day, no time: every row counts (the last three were
+    // dropped as a block repeating the first three, while five such rows all counted).
+    let coffees = "2026-04-01,40\n".repeat(6);
+    let (v, diags) = intake(&format!(
+        "date,kcal\n2026-04-01,300\n{coffees}2026-04-01,900\n2026-04-02,500\n"
+    ));
+    assert!(
+        !diags.iter().any(|d| d.message.contains("row for row")),
+        "{diags:#?}"
+    );
+    assert_eq!(v[0].kcal, 300.0 + 6.0 * 40.0 + 900.0);
+    // Two such runs pasted together with other rows are still a repeated block.
+    let block = format!("2026-04-01,300\n{}", "2026-04-01,40\n".repeat(3));
+    let (v, diags) = intake(&format!("date,kcal\n{block}{block}"));
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(
+        diags[0]
+            .message
+            .contains("lines 6–9 (4 rows) repeat lines 2–5"),
+        "{}",
+        diags[0]
+    );
+    assert_eq!(v[0].kcal, 420.0);
+    // With a time of day, identical rows are duplicates as before.
+    let (w, diags) = weights(&format!(
+        "date,weight,unit,time\n{}",
+        "2026-04-01,72,kg,07:10\n".repeat(6)
+    ));
+    assert_eq!(w.len(), 1, "{diags:#?}");
+}
+
+#[test]
 fn a_long_repeated_block_on_one_day_is_found() {
     // More rows on one day than the pairwise comparison of same-day rows handles.
     let mut block = String::new();
