@@ -2606,6 +2606,25 @@ pub fn parse_activity(
     Some(out)
 }
 
+/// An `attended` cell as attendance registers write it: `yes`/`no` and their short forms, and
+/// the words of a register's export (`Present`/`Absent`, `Attended`/`Did not attend`, `DNA`,
+/// `No-show`, a tick or a cross). Such rows were dropped as "unreadable attendance", so a
+/// register exported as it comes lost every session. Case, `-`, `_` and spacing do not
+/// matter. `None` for anything else (`excused`, a lone `x`, which registers use either way).
+fn attendance_word(cell: &str) -> Option<bool> {
+    let words: Vec<String> = cell
+        .split(|ch: char| ch.is_whitespace() || ch == '-' || ch == '_')
+        .filter(|w| !w.is_empty())
+        .map(str::to_lowercase)
+        .collect();
+    match words.join(" ").as_str() {
+        "yes" | "y" | "true" | "1" | "present" | "attended" | "✓" | "✔" => Some(true),
+        "no" | "n" | "false" | "0" | "absent" | "did not attend" | "not attended" | "dna"
+        | "no show" | "noshow" | "✗" | "✘" => Some(false),
+        _ => None,
+    }
+}
+
 /// Parses `sessions.csv`.
 pub fn parse_sessions(
     text: &str,
@@ -2618,13 +2637,15 @@ pub fn parse_sessions(
     let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         let session = c.required_text("session", d)?;
         let a = c.required_text("attended", d)?;
-        let attended = match a.to_lowercase().as_str() {
-            "yes" | "y" | "true" | "1" => true,
-            "no" | "n" | "false" | "0" => false,
-            _ => {
+        let attended = match attendance_word(&a) {
+            Some(x) => x,
+            None => {
                 d.push(
                     c.warn("attended", "unreadable attendance; the row is dropped")
-                        .expected("`yes` or `no`")
+                        .expected(
+                            "`yes` or `no` (also `present`, `attended`, `✓`; `absent`, \
+                             `did not attend`, `DNA`, `no-show`, `✗`)",
+                        )
                         .found(format!("`{a}`")),
                 );
                 return None;

@@ -1688,6 +1688,21 @@ fn sessions_attendance() {
     assert_eq!(v[0].session, "1");
     assert_eq!(diags.len(), 1);
     assert_eq!(diags[0].column, Some(3));
+    // A register's export: every row was dropped as "unreadable attendance".
+    let mut diags = Vec::new();
+    let v = parse_sessions(
+        "date,session,attended\n2026-04-01,1,Present\n2026-04-08,2,Absent\n2026-04-15,3,Attended\n2026-04-22,4,Did not attend\n2026-04-29,5,DNA\n2026-05-06,6,No-show\n2026-05-13,7,✓\n2026-05-20,8,excused\n",
+        &CsvOptions::default(),
+        &ctx("sessions.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let read: Vec<bool> = v.iter().map(|s| s.attended).collect();
+    assert_eq!(read, [true, false, true, false, false, false, true]);
+    // `excused` says neither: still a warning at its cell.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(9), Some(3)));
 }
 
 /// A laboratory system's export names each test by its LOINC code: every such row was dropped
