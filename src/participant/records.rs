@@ -1652,6 +1652,26 @@ pub fn parse_intake(
                 }
             },
         };
+        // A `Unit` column beside the energy (`Date;Energy;Unit` with `kcal` or `kJ` on each
+        // row, as some food diaries export): it is no column of ours, and a row in kJ
+        // (`7900;kJ` among kcal rows) was read as 7,900 kcal, with only a note that the column
+        // is not read. Its energy units are read as a unit in the cell would be; anything else
+        // there (a serving's `g` or `cup`) is not an energy unit and is left alone.
+        let in_column = in_cell
+            .is_none()
+            .then(|| {
+                c.table
+                    .unread_cell(c.row, super::table::ENERGY_UNIT_COLUMNS)
+            })
+            .flatten()
+            .and_then(energy_unit);
+        if in_column.is_some() {
+            c.table.recognised(
+                "energy units (`kcal`, `kJ`) read from the unit column beside the energy, each row in its own",
+            );
+        }
+        let in_cell_only = in_cell;
+        let in_cell = in_cell.or(in_column);
         let mut kcal = c.parse_number("kcal", num, "the row is dropped", d)?;
         let header_kj = c.table.header_unit("kcal").map(|u| u == "kj");
         declared_rows += usize::from(header_kj.is_some());
@@ -1677,6 +1697,8 @@ pub fn parse_intake(
         }
         if in_cell.is_some() {
             units_in_cells = true;
+        }
+        if in_cell_only.is_some() {
             c.table
                 .recognised("energy with its unit in the cell (`1,850 kcal`, `7950 kJ`)");
         }

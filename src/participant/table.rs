@@ -403,6 +403,19 @@ impl Table {
             .find(|f| is_label(f, labels))
     }
 
+    /// The cell of `row` in a column the file's spec does not read whose header is one of
+    /// `keys` (as [`header_key`] reads it): an intake file's `Unit` column beside its energy.
+    pub fn unread_cell<'t>(&'t self, row: &Row, keys: &[&str]) -> Option<&'t str> {
+        let i = (0..self.width)
+            .filter(|i| !self.columns.values().any(|c| c == i))
+            .find(|&i| {
+                self.written
+                    .get(i)
+                    .is_some_and(|h| keys.contains(&header_key(h).0.as_str()))
+            })?;
+        self.field(row, i)
+    }
+
     /// Whether rows `a` and `b` hold the same text in every field.
     pub fn same_row(&self, a: &Row, b: &Row) -> bool {
         (0..self.width).all(|i| self.field(a, i) == self.field(b, i))
@@ -651,6 +664,11 @@ fn spreadsheet_text(cell: &str) -> Option<String> {
     let unescaped = inside.replace("\"\"", "\"");
     (unescaped.matches('"').count() * 2 == inside.matches('"').count()).then_some(unescaped)
 }
+
+/// Headers (as [`header_key`] reads them) of a column that may give each intake row's energy
+/// unit beside the energy column (`Date;Energy;Unit`): not one of `intake.csv`'s columns, read
+/// by `parse_intake` where its cells are energy units.
+pub const ENERGY_UNIT_COLUMNS: &[&str] = &["unit", "units", "energy_unit", "einheit"];
 
 /// Consecutive identical rows that make a repeated block (a file pasted twice): fewer could be
 /// the same meal or walk on the same days by chance (common practice).
@@ -1441,7 +1459,11 @@ fn read_records(
             // An activity's start beside its date column is no misspelt column either.
             None if !near_ours(&key, spec) || (start_beside_date && is_start(&key)) => {
                 unnamed.push(i);
-                ignored.push(format!("`{name}`"));
+                // An intake file's unit column gives the rows' energy units where it holds
+                // them (`parse_intake`), which its note says: not named as a column not read.
+                if !(spec.name == "intake.csv" && ENERGY_UNIT_COLUMNS.contains(&key.as_str())) {
+                    ignored.push(format!("`{name}`"));
+                }
             }
             None => {
                 unnamed.push(i);

@@ -738,6 +738,39 @@ fn a_run_of_one_identical_row_is_no_repeated_block() {
 }
 
 #[test]
+fn an_energy_unit_column_beside_the_energy_is_read() {
+    // `Date;Energy;Unit`: the kJ row was read as 7,900 kcal (the `Unit` column is not ours).
+    let (v, diags) = intake(
+        "Date;Energy;Unit\n01.04.2026;1800;kcal\n02.04.2026;1900;kcal\n03.04.2026;7950;kJ\n04.04.2026;2000;kcal\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kcal: Vec<f64> = v.iter().map(|d| (d.kcal * 10.0).round() / 10.0).collect();
+    // 7950 kJ / 4.184 kJ per kcal = 1900.1 kcal
+    assert_eq!(kcal, [1800.0, 1900.0, 1900.1, 2000.0]);
+    // A file of kJ rows only is read too, not refused as kilojoules under a kcal header.
+    let (v, diags) = intake("date,energy,unit\n2026-04-01,7950,kJ\n2026-04-02,8368,kJ\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[1].kcal, 2000.0);
+    // A serving's unit in a food diary's `Unit` column is no energy unit: kcal as written.
+    let (v, diags) = intake(
+        "date,food,amount,unit,calories\n2026-04-01,Rice,150,g,195\n2026-04-01,Milk,1,cup,120\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].kcal, 315.0);
+    // Against the header's unit, the row cannot say which is right: dropped, named.
+    let (v, diags) =
+        intake("date,kcal,unit\n2026-04-01,1800,kcal\n2026-04-02,7950,kJ\n2026-04-03,1900,kcal\n");
+    assert_eq!(v.len(), 3, "{diags:#?}");
+    assert!((v[1].kcal - 1900.1).abs() < 0.1, "{v:?}");
+    let (v, diags) = intake(
+        "date,Energy (kcal),unit\n2026-04-01,1800,kcal\n2026-04-02,7950,kJ\n2026-04-03,1900,kcal\n",
+    );
+    assert_eq!(v.len(), 2, "{diags:#?}");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(3));
+}
+
+#[test]
 fn a_long_repeated_block_on_one_day_is_found() {
     // More rows on one day than the pairwise comparison of same-day rows handles.
     let mut block = String::new();
