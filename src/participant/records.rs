@@ -1659,10 +1659,7 @@ pub fn parse_intake(
         // there (a serving's `g` or `cup`) is not an energy unit and is left alone.
         let in_column = in_cell
             .is_none()
-            .then(|| {
-                c.table
-                    .unread_cell(c.row, super::table::ENERGY_UNIT_COLUMNS)
-            })
+            .then(|| c.table.unread_cell(c.row, super::table::UNIT_COLUMNS))
             .flatten()
             .and_then(energy_unit);
         if in_column.is_some() {
@@ -2371,6 +2368,23 @@ pub fn parse_activity(
             String::new()
         } else {
             c.required_text("minutes", d)?
+        };
+        // A unit column beside a bare number (`Duration,Unit` with `30,min` and `1,h`), which
+        // is no column of ours: `1,h` was read as 1 minute. The number is read with the unit
+        // as if written in its cell (`1 h`); a unit that is no duration's leaves it as it was.
+        let raw = match (
+            split_duration(&raw),
+            c.table.unread_cell(c.row, super::table::UNIT_COLUMNS),
+        ) {
+            (WrittenDuration::Plain(_), Some(u))
+                if matches!(
+                    split_duration(&format!("{raw} {u}")),
+                    WrittenDuration::Units(..)
+                ) =>
+            {
+                format!("{raw} {u}")
+            }
+            _ => raw,
         };
         // The start's local day, when a UTC start moved it off the row's date.
         let mut local_start = None;

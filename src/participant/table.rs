@@ -397,8 +397,16 @@ impl Table {
     /// The first field of `row` outside our columns that holds one of `labels` (see
     /// [`Table::row_labelled`]).
     pub fn row_label<'t>(&'t self, row: &Row, labels: &[&str]) -> Option<&'t str> {
+        // A unit column's `min` is minutes, not a row's minimum: every activity row of a
+        // `Duration,Unit` export in minutes was left out as a summary row.
         (0..self.width)
             .filter(|i| !self.columns.values().any(|c| c == i))
+            .filter(|&i| {
+                !self
+                    .written
+                    .get(i)
+                    .is_some_and(|h| UNIT_COLUMNS.contains(&header_key(h).0.as_str()))
+            })
             .filter_map(|i| self.field(row, i))
             .find(|f| is_label(f, labels))
     }
@@ -665,10 +673,11 @@ fn spreadsheet_text(cell: &str) -> Option<String> {
     (unescaped.matches('"').count() * 2 == inside.matches('"').count()).then_some(unescaped)
 }
 
-/// Headers (as [`header_key`] reads them) of a column that may give each intake row's energy
-/// unit beside the energy column (`Date;Energy;Unit`): not one of `intake.csv`'s columns, read
-/// by `parse_intake` where its cells are energy units.
-pub const ENERGY_UNIT_COLUMNS: &[&str] = &["unit", "units", "energy_unit", "einheit"];
+/// Headers (as [`header_key`] reads them) of a column that gives the unit of each row's value
+/// beside it (`Date;Energy;Unit`, `Date,Activity,Duration,Unit`): not one of `intake.csv`'s or
+/// `activity.csv`'s columns, read by `parse_intake` and `parse_activity` where its cells are
+/// units of energy or of time. Its cells are never summary labels: `min` there is minutes.
+pub const UNIT_COLUMNS: &[&str] = &["unit", "units", "energy_unit", "duration_unit", "einheit"];
 
 /// Consecutive identical rows that make a repeated block (a file pasted twice): fewer could be
 /// the same meal or walk on the same days by chance (common practice).
@@ -1461,7 +1470,9 @@ fn read_records(
                 unnamed.push(i);
                 // An intake file's unit column gives the rows' energy units where it holds
                 // them (`parse_intake`), which its note says: not named as a column not read.
-                if !(spec.name == "intake.csv" && ENERGY_UNIT_COLUMNS.contains(&key.as_str())) {
+                if !(matches!(spec.name, "intake.csv" | "activity.csv")
+                    && UNIT_COLUMNS.contains(&key.as_str()))
+                {
                     ignored.push(format!("`{name}`"));
                 }
             }

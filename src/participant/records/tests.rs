@@ -771,6 +771,23 @@ fn an_energy_unit_column_beside_the_energy_is_read() {
 }
 
 #[test]
+fn a_duration_unit_column_is_read_and_its_min_is_no_summary_label() {
+    // `Duration,Unit`: the `min` rows were left out as summary rows (`Min`), and `1,h` read
+    // as 1 minute.
+    let (v, diags) = activity(
+        "Date,Activity,Duration,Unit\n2026-04-01,walk,30,min\n2026-04-02,walk,1,h\n2026-04-03,cycling,45,min\n2026-04-04,walk,1.5,hours\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = v.iter().map(|a| a.minutes).collect();
+    assert_eq!(minutes, [30.0, 60.0, 45.0, 90.0]);
+    // A `Min` row marked in a notes column is still a summary row.
+    let (v, _) = activity(
+        "Date,Activity,Duration,Notes\n2026-04-01,walk,30,\n2026-04-02,walk,20,Min\n2026-04-03,walk,40,\n",
+    );
+    assert_eq!(v.len(), 2);
+}
+
+#[test]
 fn a_long_repeated_block_on_one_day_is_found() {
     // More rows on one day than the pairwise comparison of same-day rows handles.
     let mut block = String::new();
