@@ -246,6 +246,9 @@ pub struct Table {
     /// An activity file's rows that give only a step count (see [`Table::is_step_count`]):
     /// how many, and the first one's line.
     step_count_rows: Cell<(usize, u64)>,
+    /// Columns not ours found to hold words of their own (see [`Table::column_of_words`]),
+    /// by field index, as first worked out.
+    words_columns: RefCell<BTreeMap<usize, bool>>,
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
     /// the file's note.
     recognised: RefCell<std::collections::BTreeSet<std::borrow::Cow<'static, str>>>,
@@ -407,8 +410,28 @@ impl Table {
                     .get(i)
                     .is_some_and(|h| UNIT_COLUMNS.contains(&header_key(h).0.as_str()))
             })
-            .filter_map(|i| self.field(row, i))
-            .find(|f| is_label(f, labels))
+            .filter_map(|i| self.field(row, i).map(|f| (i, f)))
+            .find(|&(i, f)| {
+                is_label(f, labels) && !(is_label(f, &EXTREME_LABELS) && self.column_of_words(i))
+            })
+            .map(|(_, f)| f)
+    }
+
+    /// Whether column `i` holds, in some row, a word that is no summary label and no number
+    /// (`Low`, `Moderate` beside `Max` in an `Intensity` column): a column of values of its
+    /// own, in which `Max` or `Min` is a value (an effort), not a row's maximum. Every `Max`
+    /// workout of such an export was left out as a summary row, with a note only.
+    fn column_of_words(&self, i: usize) -> bool {
+        if let Some(&w) = self.words_columns.borrow().get(&i) {
+            return w;
+        }
+        let w = self.rows.iter().filter_map(|r| self.field(r, i)).any(|f| {
+            f.chars().any(char::is_alphabetic)
+                && !is_label(f, &SUMMARY_LABELS)
+                && !is_summary_date(f)
+        });
+        self.words_columns.borrow_mut().insert(i, w);
+        w
     }
 
     /// The cell of `row` in a column the file's spec does not read whose header is one of
@@ -472,6 +495,7 @@ impl Table {
             summary_rows: RefCell::new((0, None)),
             unfilled_rows: Cell::new((0, 0)),
             step_count_rows: Cell::new((0, 0)),
+            words_columns: RefCell::new(BTreeMap::new()),
             recognised: RefCell::default(),
             dropped: (0, None),
         }
@@ -3787,6 +3811,10 @@ pub const SUMMARY_LABELS: [&str; 33] = [
     "gjennomsnitt",
     "totalt",
 ];
+
+/// The summary labels that are also values a column may hold (an effort's `Max`, a unit's
+/// `min`): read as labels only in a column of no other words ([`Table::column_of_words`]).
+const EXTREME_LABELS: [&str; 4] = ["min", "max", "minimum", "maximum"];
 
 /// Whether `text` is one of `labels` (lowercase), whatever its case, spacing or final colon.
 pub fn is_label(text: &str, labels: &[&str]) -> bool {
