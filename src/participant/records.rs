@@ -2371,11 +2371,16 @@ pub fn parse_activity(
         };
         // A unit column beside a bare number (`Duration,Unit` with `30,min` and `1,h`), which
         // is no column of ours: `1,h` was read as 1 minute. The number is read with the unit
-        // as if written in its cell (`1 h`); a unit that is no duration's leaves it as it was.
-        let raw = match (
-            split_duration(&raw),
-            c.table.unread_cell(c.row, super::table::UNIT_COLUMNS),
-        ) {
+        // as if written in its cell (`1 h`); a unit that is no duration's leaves it as it was,
+        // and so does any under a header that names the duration's unit (`Duration (h)` beside
+        // `Distance,Unit` with `m`: metres, which read as minutes dropped the row).
+        let unit_column = c
+            .table
+            .header_unit("minutes")
+            .is_none()
+            .then(|| c.table.unread_cell(c.row, super::table::UNIT_COLUMNS))
+            .flatten();
+        let raw = match (split_duration(&raw), unit_column) {
             (WrittenDuration::Plain(_), Some(u))
                 if matches!(
                     split_duration(&format!("{raw} {u}")),

@@ -780,6 +780,14 @@ fn a_duration_unit_column_is_read_and_its_min_is_no_summary_label() {
     assert!(diags.is_empty(), "{diags:#?}");
     let minutes: Vec<f64> = v.iter().map(|a| a.minutes).collect();
     assert_eq!(minutes, [30.0, 60.0, 45.0, 90.0]);
+    // Under a header that names the duration's unit, a unit column is another value's (a
+    // distance in metres): the hours are read as the header says.
+    let (v, diags) = activity(
+        "Date,Activity,Duration (h),Distance,Unit\n2026-04-01,walk,0.5,2.1,km\n2026-04-03,run,0.5,5000,m\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = v.iter().map(|a| a.minutes).collect();
+    assert_eq!(minutes, [30.0, 30.0]);
     // An effort column's `Max` is an effort, not a row's maximum: both workouts count.
     let (v, diags) = activity(
         "Date,Activity,Duration,Intensity\n2026-04-01,walk,30,Low\n2026-04-02,HIIT,20,Max\n2026-04-03,cycling,45,Moderate\n2026-04-04,run,25,Max\n",
