@@ -2288,6 +2288,22 @@ pub fn parse_activity(
 ) -> Option<Vec<ActivityEntry>> {
     let table = read_table(text, &ACTIVITY, opts, ctx, diags)?;
     let has_met_column = table.column("met").is_some();
+    // Whether a unit column beside the duration gives durations' units in some row (`min`,
+    // `h`): then a unit of its that is none (`Std.`) is an unknown unit, not another value's.
+    // A bare `m` tells nothing: it is also a distance's metres (swims in `m`, runs in `km`).
+    let is_duration_unit = |u: &str| {
+        !u.trim().eq_ignore_ascii_case("m")
+            && matches!(
+                split_duration(&format!("1 {u}")),
+                WrittenDuration::Units(..)
+            )
+    };
+    let duration_units_column = table.header_unit("minutes").is_none()
+        && table.rows.iter().any(|r| {
+            table
+                .unread_cell(r, super::table::UNIT_COLUMNS)
+                .is_some_and(is_duration_unit)
+        });
     // Unknown labels: (rows, first line), reported once per label.
     let mut unknown: BTreeMap<String, (usize, u64)> = BTreeMap::new();
     // The first duration whose unit in the cell disagrees with the header's.
@@ -2388,6 +2404,17 @@ pub fn parse_activity(
                 ) =>
             {
                 format!("{raw} {u}")
+            }
+            // In a column of durations' units, one the reader does not know (`2,Std.`) was
+            // read as 2 minutes without a word.
+            (WrittenDuration::Plain(_), Some(u)) if duration_units_column => {
+                d.push(
+                    c.warn("minutes", "unknown duration unit in the unit column; the row is dropped")
+                        .expected("a duration unit beside the number, as the column's other rows give: `min`, `h` or `s`")
+                        .found(format!("`{raw}` with unit `{u}`"))
+                        .hint("write the unit as `min`, `h` or `s`, or the duration with its unit in the cell (`2 h`)"),
+                );
+                return None;
             }
             _ => raw,
         };

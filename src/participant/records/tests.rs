@@ -780,6 +780,25 @@ fn a_duration_unit_column_is_read_and_its_min_is_no_summary_label() {
     assert!(diags.is_empty(), "{diags:#?}");
     let minutes: Vec<f64> = v.iter().map(|a| a.minutes).collect();
     assert_eq!(minutes, [30.0, 60.0, 45.0, 90.0]);
+    // A unit the reader does not know in that column (`Std.`) drops its row, named; it was
+    // read as 2 minutes.
+    let (v, diags) =
+        activity("Date,Activity,Duration,Unit\n2026-04-01,walk,30,min\n2026-04-02,walk,2,Std.\n");
+    assert_eq!(v.len(), 1, "{diags:#?}");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(3)));
+    assert!(
+        diags[0].message.contains("unknown duration unit"),
+        "{}",
+        diags[0]
+    );
+    // A unit column of distances only (`km`) leaves the minutes as they were.
+    let (v, diags) = activity(
+        "Date,Activity,Duration,Distance,Unit\n2026-04-01,walk,30,2.1,km\n2026-04-02,swim,40,800,m\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = v.iter().map(|a| a.minutes).collect();
+    assert_eq!(minutes, [30.0, 40.0]);
     // Under a header that names the duration's unit, a unit column is another value's (a
     // distance in metres): the hours are read as the header says.
     let (v, diags) = activity(
