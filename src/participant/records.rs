@@ -1652,6 +1652,23 @@ pub fn parse_intake(
                 }
             },
         };
+        // A `Unit` column beside the energy (`Date;Energy;Unit` with `kcal` or `kJ` on each
+        // row, as some food diaries export): it is no column of ours, and a row in kJ
+        // (`7900;kJ` among kcal rows) was read as 7,900 kcal, with only a note that the column
+        // is not read. Its energy units are read as a unit in the cell would be; anything else
+        // there (a serving's `g` or `cup`) is not an energy unit and is left alone.
+        let in_column = in_cell
+            .is_none()
+            .then(|| c.table.unread_cell(c.row, super::table::UNIT_COLUMNS))
+            .flatten()
+            .and_then(energy_unit);
+        if in_column.is_some() {
+            c.table.recognised(
+                "energy units (`kcal`, `kJ`) read from the unit column beside the energy, each row in its own",
+            );
+        }
+        let in_cell_only = in_cell;
+        let in_cell = in_cell.or(in_column);
         let mut kcal = c.parse_number("kcal", num, "the row is dropped", d)?;
         let header_kj = c.table.header_unit("kcal").map(|u| u == "kj");
         declared_rows += usize::from(header_kj.is_some());
@@ -1677,6 +1694,8 @@ pub fn parse_intake(
         }
         if in_cell.is_some() {
             units_in_cells = true;
+        }
+        if in_cell_only.is_some() {
             c.table
                 .recognised("energy with its unit in the cell (`1,850 kcal`, `7950 kJ`)");
         }
@@ -2269,6 +2288,22 @@ pub fn parse_activity(
 ) -> Option<Vec<ActivityEntry>> {
     let table = read_table(text, &ACTIVITY, opts, ctx, diags)?;
     let has_met_column = table.column("met").is_some();
+    // Whether a unit column beside the duration gives durations' units in some row (`min`,
+    // `h`): then a unit of its that is none (`Std.`) is an unknown unit, not another value's.
+    // A bare `m` tells nothing: it is also a distance's metres (swims in `m`, runs in `km`).
+    let is_duration_unit = |u: &str| {
+        !u.trim().eq_ignore_ascii_case("m")
+            && matches!(
+                split_duration(&format!("1 {u}")),
+                WrittenDuration::Units(..)
+            )
+    };
+    let duration_units_column = table.header_unit("minutes").is_none()
+        && table.rows.iter().any(|r| {
+            table
+                .unread_cell(r, super::table::UNIT_COLUMNS)
+                .is_some_and(is_duration_unit)
+        });
     // Unknown labels: (rows, first line), reported once per label.
     let mut unknown: BTreeMap<String, (usize, u64)> = BTreeMap::new();
     // The first duration whose unit in the cell disagrees with the header's.
@@ -2349,6 +2384,39 @@ pub fn parse_activity(
             String::new()
         } else {
             c.required_text("minutes", d)?
+        };
+        // A unit column beside a bare number (`Duration,Unit` with `30,min` and `1,h`), which
+        // is no column of ours: `1,h` was read as 1 minute. The number is read with the unit
+        // as if written in its cell (`1 h`); a unit that is no duration's leaves it as it was,
+        // and so does any under a header that names the duration's unit (`Duration (h)` beside
+        // `Distance,Unit` with `m`: metres, which read as minutes dropped the row).
+        let unit_column = c
+            .table
+            .header_unit("minutes")
+            .is_none()
+            .then(|| c.table.unread_cell(c.row, super::table::UNIT_COLUMNS))
+            .flatten();
+        let raw = match (split_duration(&raw), unit_column) {
+            (WrittenDuration::Plain(_), Some(u))
+                if matches!(
+                    split_duration(&format!("{raw} {u}")),
+                    WrittenDuration::Units(..)
+                ) =>
+            {
+                format!("{raw} {u}")
+            }
+            // In a column of durations' units, one the reader does not know (`2,Std.`) was
+            // read as 2 minutes without a word.
+            (WrittenDuration::Plain(_), Some(u)) if duration_units_column => {
+                d.push(
+                    c.warn("minutes", "unknown duration unit in the unit column; the row is dropped")
+                        .expected("a duration unit beside the number, as the column's other rows give: `min`, `h` or `s`")
+                        .found(format!("`{raw}` with unit `{u}`"))
+                        .hint("write the unit as `min`, `h` or `s`, or the duration with its unit in the cell (`2 h`)"),
+                );
+                return None;
+            }
+            _ => raw,
         };
         // The start's local day, when a UTC start moved it off the row's date.
         let mut local_start = None;
@@ -2606,6 +2674,25 @@ pub fn parse_activity(
     Some(out)
 }
 
+/// An `attended` cell as attendance registers write it: `yes`/`no` and their short forms, and
+/// the words of a register's export (`Present`/`Absent`, `Attended`/`Did not attend`, `DNA`,
+/// `No-show`, a tick or a cross). Such rows were dropped as "unreadable attendance", so a
+/// register exported as it comes lost every session. Case, `-`, `_` and spacing do not
+/// matter. `None` for anything else (`excused`, a lone `x`, which registers use either way).
+fn attendance_word(cell: &str) -> Option<bool> {
+    let words: Vec<String> = cell
+        .split(|ch: char| ch.is_whitespace() || ch == '-' || ch == '_')
+        .filter(|w| !w.is_empty())
+        .map(str::to_lowercase)
+        .collect();
+    match words.join(" ").as_str() {
+        "yes" | "y" | "true" | "1" | "present" | "attended" | "✓" | "✔" => Some(true),
+        "no" | "n" | "false" | "0" | "absent" | "did not attend" | "not attended" | "dna"
+        | "no show" | "noshow" | "✗" | "✘" => Some(false),
+        _ => None,
+    }
+}
+
 /// Parses `sessions.csv`.
 pub fn parse_sessions(
     text: &str,
@@ -2618,13 +2705,15 @@ pub fn parse_sessions(
     let rows = parse_rows(&table, ctx, opts, w, diags, |c, d| {
         let session = c.required_text("session", d)?;
         let a = c.required_text("attended", d)?;
-        let attended = match a.to_lowercase().as_str() {
-            "yes" | "y" | "true" | "1" => true,
-            "no" | "n" | "false" | "0" => false,
-            _ => {
+        let attended = match attendance_word(&a) {
+            Some(x) => x,
+            None => {
                 d.push(
                     c.warn("attended", "unreadable attendance; the row is dropped")
-                        .expected("`yes` or `no`")
+                        .expected(
+                            "`yes` or `no` (also `present`, `attended`, `✓`; `absent`, \
+                             `did not attend`, `DNA`, `no-show`, `✗`)",
+                        )
                         .found(format!("`{a}`")),
                 );
                 return None;

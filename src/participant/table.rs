@@ -246,6 +246,9 @@ pub struct Table {
     /// An activity file's rows that give only a step count (see [`Table::is_step_count`]):
     /// how many, and the first one's line.
     step_count_rows: Cell<(usize, u64)>,
+    /// Columns not ours found to hold words of their own (see [`Table::column_of_words`]),
+    /// by field index, as first worked out.
+    words_columns: RefCell<BTreeMap<usize, bool>>,
     /// Forms of values recognised in the cells (`weights with their unit in the cell`), for
     /// the file's note.
     recognised: RefCell<std::collections::BTreeSet<std::borrow::Cow<'static, str>>>,
@@ -397,10 +400,51 @@ impl Table {
     /// The first field of `row` outside our columns that holds one of `labels` (see
     /// [`Table::row_labelled`]).
     pub fn row_label<'t>(&'t self, row: &Row, labels: &[&str]) -> Option<&'t str> {
+        // A unit column's `min` is minutes, not a row's minimum: every activity row of a
+        // `Duration,Unit` export in minutes was left out as a summary row.
         (0..self.width)
             .filter(|i| !self.columns.values().any(|c| c == i))
-            .filter_map(|i| self.field(row, i))
-            .find(|f| is_label(f, labels))
+            .filter(|&i| {
+                !self
+                    .written
+                    .get(i)
+                    .is_some_and(|h| UNIT_COLUMNS.contains(&header_key(h).0.as_str()))
+            })
+            .filter_map(|i| self.field(row, i).map(|f| (i, f)))
+            .find(|&(i, f)| {
+                is_label(f, labels) && !(is_label(f, &EXTREME_LABELS) && self.column_of_words(i))
+            })
+            .map(|(_, f)| f)
+    }
+
+    /// Whether column `i` holds, in some row, a word that is no summary label and no number
+    /// (`Low`, `Moderate` beside `Max` in an `Intensity` column): a column of values of its
+    /// own, in which `Max` or `Min` is a value (an effort), not a row's maximum. Every `Max`
+    /// workout of such an export was left out as a summary row, with a note only.
+    fn column_of_words(&self, i: usize) -> bool {
+        if let Some(&w) = self.words_columns.borrow().get(&i) {
+            return w;
+        }
+        let w = self.rows.iter().filter_map(|r| self.field(r, i)).any(|f| {
+            f.chars().any(char::is_alphabetic)
+                && !is_label(f, &SUMMARY_LABELS)
+                && !is_summary_date(f)
+        });
+        self.words_columns.borrow_mut().insert(i, w);
+        w
+    }
+
+    /// The cell of `row` in a column the file's spec does not read whose header is one of
+    /// `keys` (as [`header_key`] reads it): an intake file's `Unit` column beside its energy.
+    pub fn unread_cell<'t>(&'t self, row: &Row, keys: &[&str]) -> Option<&'t str> {
+        let i = (0..self.width)
+            .filter(|i| !self.columns.values().any(|c| c == i))
+            .find(|&i| {
+                self.written
+                    .get(i)
+                    .is_some_and(|h| keys.contains(&header_key(h).0.as_str()))
+            })?;
+        self.field(row, i)
     }
 
     /// Whether rows `a` and `b` hold the same text in every field.
@@ -451,6 +495,7 @@ impl Table {
             summary_rows: RefCell::new((0, None)),
             unfilled_rows: Cell::new((0, 0)),
             step_count_rows: Cell::new((0, 0)),
+            words_columns: RefCell::new(BTreeMap::new()),
             recognised: RefCell::default(),
             dropped: (0, None),
         }
@@ -608,7 +653,14 @@ impl Table {
                 }
             }
             let (len, j) = longest;
-            if len >= REPEATED_BLOCK_ROWS {
+            // A block of one row over and over is no evidence of a paste: six identical
+            // `2026-04-01,Coffee,40` rows (six coffees, no time) had their last three dropped
+            // as "repeating" the first three, while two to five such rows all counted. Such a
+            // run is left to the rule for identical rows (counted without a time).
+            let one_row_repeated = (1..len).all(|k| {
+                hashes[i + k] == hashes[i] && self.same_row(&self.rows[i + k], &self.rows[i])
+            });
+            if len >= REPEATED_BLOCK_ROWS && !one_row_repeated {
                 for k in 0..len {
                     dup[i + k] = Some(self.rows[j + k].line);
                 }
@@ -644,6 +696,12 @@ fn spreadsheet_text(cell: &str) -> Option<String> {
     let unescaped = inside.replace("\"\"", "\"");
     (unescaped.matches('"').count() * 2 == inside.matches('"').count()).then_some(unescaped)
 }
+
+/// Headers (as [`header_key`] reads them) of a column that gives the unit of each row's value
+/// beside it (`Date;Energy;Unit`, `Date,Activity,Duration,Unit`): not one of `intake.csv`'s or
+/// `activity.csv`'s columns, read by `parse_intake` and `parse_activity` where its cells are
+/// units of energy or of time. Its cells are never summary labels: `min` there is minutes.
+pub const UNIT_COLUMNS: &[&str] = &["unit", "units", "energy_unit", "duration_unit", "einheit"];
 
 /// Consecutive identical rows that make a repeated block (a file pasted twice): fewer could be
 /// the same meal or walk on the same days by chance (common practice).
@@ -1434,7 +1492,13 @@ fn read_records(
             // An activity's start beside its date column is no misspelt column either.
             None if !near_ours(&key, spec) || (start_beside_date && is_start(&key)) => {
                 unnamed.push(i);
-                ignored.push(format!("`{name}`"));
+                // An intake file's unit column gives the rows' energy units where it holds
+                // them (`parse_intake`), which its note says: not named as a column not read.
+                if !(matches!(spec.name, "intake.csv" | "activity.csv")
+                    && UNIT_COLUMNS.contains(&key.as_str()))
+                {
+                    ignored.push(format!("`{name}`"));
+                }
             }
             None => {
                 unnamed.push(i);
@@ -3747,6 +3811,10 @@ pub const SUMMARY_LABELS: [&str; 33] = [
     "gjennomsnitt",
     "totalt",
 ];
+
+/// The summary labels that are also values a column may hold (an effort's `Max`, a unit's
+/// `min`): read as labels only in a column of no other words ([`Table::column_of_words`]).
+const EXTREME_LABELS: [&str; 4] = ["min", "max", "minimum", "maximum"];
 
 /// Whether `text` is one of `labels` (lowercase), whatever its case, spacing or final colon.
 pub fn is_label(text: &str, labels: &[&str]) -> bool {

@@ -705,6 +705,122 @@ fn a_repeated_block_is_dropped_with_one_warning() {
 }
 
 #[test]
+fn a_run_of_one_identical_row_is_no_repeated_block() {
+    // Six coffees of 40 kcal on one day, no time: every row counts (the last three were
+    // dropped as a block repeating the first three, while five such rows all counted).
+    let coffees = "2026-04-01,40\n".repeat(6);
+    let (v, diags) = intake(&format!(
+        "date,kcal\n2026-04-01,300\n{coffees}2026-04-01,900\n2026-04-02,500\n"
+    ));
+    assert!(
+        !diags.iter().any(|d| d.message.contains("row for row")),
+        "{diags:#?}"
+    );
+    assert_eq!(v[0].kcal, 300.0 + 6.0 * 40.0 + 900.0);
+    // Two such runs pasted together with other rows are still a repeated block.
+    let block = format!("2026-04-01,300\n{}", "2026-04-01,40\n".repeat(3));
+    let (v, diags) = intake(&format!("date,kcal\n{block}{block}"));
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert!(
+        diags[0]
+            .message
+            .contains("lines 6–9 (4 rows) repeat lines 2–5"),
+        "{}",
+        diags[0]
+    );
+    assert_eq!(v[0].kcal, 420.0);
+    // With a time of day, identical rows are duplicates as before.
+    let (w, diags) = weights(&format!(
+        "date,weight,unit,time\n{}",
+        "2026-04-01,72,kg,07:10\n".repeat(6)
+    ));
+    assert_eq!(w.len(), 1, "{diags:#?}");
+}
+
+#[test]
+fn an_energy_unit_column_beside_the_energy_is_read() {
+    // `Date;Energy;Unit`: the kJ row was read as 7,900 kcal (the `Unit` column is not ours).
+    let (v, diags) = intake(
+        "Date;Energy;Unit\n01.04.2026;1800;kcal\n02.04.2026;1900;kcal\n03.04.2026;7950;kJ\n04.04.2026;2000;kcal\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let kcal: Vec<f64> = v.iter().map(|d| (d.kcal * 10.0).round() / 10.0).collect();
+    // 7950 kJ / 4.184 kJ per kcal = 1900.1 kcal
+    assert_eq!(kcal, [1800.0, 1900.0, 1900.1, 2000.0]);
+    // A file of kJ rows only is read too, not refused as kilojoules under a kcal header.
+    let (v, diags) = intake("date,energy,unit\n2026-04-01,7950,kJ\n2026-04-02,8368,kJ\n");
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[1].kcal, 2000.0);
+    // A serving's unit in a food diary's `Unit` column is no energy unit: kcal as written.
+    let (v, diags) = intake(
+        "date,food,amount,unit,calories\n2026-04-01,Rice,150,g,195\n2026-04-01,Milk,1,cup,120\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v[0].kcal, 315.0);
+    // Against the header's unit, the row cannot say which is right: dropped, named.
+    let (v, diags) =
+        intake("date,kcal,unit\n2026-04-01,1800,kcal\n2026-04-02,7950,kJ\n2026-04-03,1900,kcal\n");
+    assert_eq!(v.len(), 3, "{diags:#?}");
+    assert!((v[1].kcal - 1900.1).abs() < 0.1, "{v:?}");
+    let (v, diags) = intake(
+        "date,Energy (kcal),unit\n2026-04-01,1800,kcal\n2026-04-02,7950,kJ\n2026-04-03,1900,kcal\n",
+    );
+    assert_eq!(v.len(), 2, "{diags:#?}");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!(diags[0].line, Some(3));
+}
+
+#[test]
+fn a_duration_unit_column_is_read_and_its_min_is_no_summary_label() {
+    // `Duration,Unit`: the `min` rows were left out as summary rows (`Min`), and `1,h` read
+    // as 1 minute.
+    let (v, diags) = activity(
+        "Date,Activity,Duration,Unit\n2026-04-01,walk,30,min\n2026-04-02,walk,1,h\n2026-04-03,cycling,45,min\n2026-04-04,walk,1.5,hours\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = v.iter().map(|a| a.minutes).collect();
+    assert_eq!(minutes, [30.0, 60.0, 45.0, 90.0]);
+    // A unit the reader does not know in that column (`Std.`) drops its row, named; it was
+    // read as 2 minutes.
+    let (v, diags) =
+        activity("Date,Activity,Duration,Unit\n2026-04-01,walk,30,min\n2026-04-02,walk,2,Std.\n");
+    assert_eq!(v.len(), 1, "{diags:#?}");
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(3), Some(3)));
+    assert!(
+        diags[0].message.contains("unknown duration unit"),
+        "{}",
+        diags[0]
+    );
+    // A unit column of distances only (`km`) leaves the minutes as they were.
+    let (v, diags) = activity(
+        "Date,Activity,Duration,Distance,Unit\n2026-04-01,walk,30,2.1,km\n2026-04-02,swim,40,800,m\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = v.iter().map(|a| a.minutes).collect();
+    assert_eq!(minutes, [30.0, 40.0]);
+    // Under a header that names the duration's unit, a unit column is another value's (a
+    // distance in metres): the hours are read as the header says.
+    let (v, diags) = activity(
+        "Date,Activity,Duration (h),Distance,Unit\n2026-04-01,walk,0.5,2.1,km\n2026-04-03,run,0.5,5000,m\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    let minutes: Vec<f64> = v.iter().map(|a| a.minutes).collect();
+    assert_eq!(minutes, [30.0, 30.0]);
+    // An effort column's `Max` is an effort, not a row's maximum: both workouts count.
+    let (v, diags) = activity(
+        "Date,Activity,Duration,Intensity\n2026-04-01,walk,30,Low\n2026-04-02,HIIT,20,Max\n2026-04-03,cycling,45,Moderate\n2026-04-04,run,25,Max\n",
+    );
+    assert!(diags.is_empty(), "{diags:#?}");
+    assert_eq!(v.len(), 4);
+    // A `Min` row marked in a notes column is still a summary row.
+    let (v, _) = activity(
+        "Date,Activity,Duration,Notes\n2026-04-01,walk,30,\n2026-04-02,walk,20,Min\n2026-04-03,walk,40,\n",
+    );
+    assert_eq!(v.len(), 2);
+}
+
+#[test]
 fn a_long_repeated_block_on_one_day_is_found() {
     // More rows on one day than the pairwise comparison of same-day rows handles.
     let mut block = String::new();
@@ -1655,6 +1771,21 @@ fn sessions_attendance() {
     assert_eq!(v[0].session, "1");
     assert_eq!(diags.len(), 1);
     assert_eq!(diags[0].column, Some(3));
+    // A register's export: every row was dropped as "unreadable attendance".
+    let mut diags = Vec::new();
+    let v = parse_sessions(
+        "date,session,attended\n2026-04-01,1,Present\n2026-04-08,2,Absent\n2026-04-15,3,Attended\n2026-04-22,4,Did not attend\n2026-04-29,5,DNA\n2026-05-06,6,No-show\n2026-05-13,7,✓\n2026-05-20,8,excused\n",
+        &CsvOptions::default(),
+        &ctx("sessions.csv"),
+        &window(),
+        &mut diags,
+    )
+    .unwrap();
+    let read: Vec<bool> = v.iter().map(|s| s.attended).collect();
+    assert_eq!(read, [true, false, true, false, false, false, true]);
+    // `excused` says neither: still a warning at its cell.
+    assert_eq!(diags.len(), 1, "{diags:#?}");
+    assert_eq!((diags[0].line, diags[0].column), (Some(9), Some(3)));
 }
 
 /// A laboratory system's export names each test by its LOINC code: every such row was dropped
