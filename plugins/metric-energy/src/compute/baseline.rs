@@ -191,6 +191,31 @@ fn log_day_cv(p: &Person<'_>, bounds: &[(NaiveDate, NaiveDate)]) -> f64 {
     ((ss + LOG_CV_PRIOR_DAYS * LOG_DAY_CV * LOG_DAY_CV) / (df + LOG_CV_PRIOR_DAYS)).sqrt()
 }
 
+/// The posterior grid's geometry, one definition for the grid's computation and its reading:
+/// EI₀ step `i` at `prior ± EI0_GRID_SD · sd0`, share step `j`, and the cell of (block wobble
+/// `k`, `i`, `j`) in the flat grid.
+struct Grid {
+    prior: f64,
+    sd0: f64,
+}
+
+impl Grid {
+    /// Share steps, [`U_MIN`] to [`U_MAX`] in steps of [`U_STEP`].
+    const N_U: usize = ((U_MAX - U_MIN) / U_STEP + 0.5) as usize + 1;
+
+    fn ei0(&self, i: usize) -> f64 {
+        self.prior + self.sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0)
+    }
+
+    fn u(j: usize) -> f64 {
+        U_MIN + U_STEP * j as f64
+    }
+
+    fn cell(k: usize, i: usize, j: usize) -> usize {
+        (k * EI0_STEPS + i) * Self::N_U + j
+    }
+}
+
 /// The joint log posterior (up to a constant) of EI₀ and the under-reporting share over the
 /// grid, cell `(k * EI0_STEPS + i) * n_u + j` for block wobble `k`, EI₀ step `i` and share step
 /// `j`, with its largest value. `prior`, `sd0`: EI₀'s prior mean and SD; `u_prior`, `u_sd`:
@@ -202,12 +227,9 @@ fn log_posterior_grid(
     u_prior: f64,
     u_sd: f64,
 ) -> (Vec<f64>, f64) {
-    let n_u = ((U_MAX - U_MIN) / U_STEP).round() as usize + 1;
-    let ei_at =
-        |i: usize| prior + sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0);
-    let u_at = |j: usize| U_MIN + U_STEP * j as f64;
+    let grid = Grid { prior, sd0 };
+    let (n_u, ei_at, u_at, cell) = (Grid::N_U, |i| grid.ei0(i), Grid::u, Grid::cell);
     let n_k = UNDERREPORT_BLOCK_SDS.len();
-    let cell = |k: usize, i: usize, j: usize| (k * EI0_STEPS + i) * n_u + j;
     let mut logp = vec![0.0_f64; n_k * EI0_STEPS * n_u];
     let mut best = f64::NEG_INFINITY;
     // Each block's variance depends on u and σ_u only: (1/V, ln V) once per pair.
@@ -289,12 +311,9 @@ pub(super) fn baseline_requirement(
     if blocks.is_empty() {
         return fallback;
     }
-    let n_u = ((U_MAX - U_MIN) / U_STEP).round() as usize + 1;
-    let ei_at =
-        |i: usize| prior + sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0);
-    let u_at = |j: usize| U_MIN + U_STEP * j as f64;
+    let grid = Grid { prior, sd0 };
+    let (n_u, ei_at, u_at, cell) = (Grid::N_U, |i| grid.ei0(i), Grid::u, Grid::cell);
     let n_k = UNDERREPORT_BLOCK_SDS.len();
-    let cell = |k: usize, i: usize, j: usize| (k * EI0_STEPS + i) * n_u + j;
     let (logp, best) =
         log_posterior_grid(&blocks, prior, sd0, s.underreport_prior, s.underreport_sd);
     let mut w_total = 0.0;
@@ -349,11 +368,8 @@ mod grid_tests {
         u_prior: f64,
         u_sd: f64,
     ) -> (Vec<f64>, f64) {
-        let n_u = ((U_MAX - U_MIN) / U_STEP).round() as usize + 1;
-        let ei_at =
-            |i: usize| prior + sd0 * EI0_GRID_SD * (2.0 * i as f64 / (EI0_STEPS - 1) as f64 - 1.0);
-        let u_at = |j: usize| U_MIN + U_STEP * j as f64;
-        let cell = |k: usize, i: usize, j: usize| (k * EI0_STEPS + i) * n_u + j;
+        let grid = Grid { prior, sd0 };
+        let (n_u, ei_at, u_at, cell) = (Grid::N_U, |i| grid.ei0(i), Grid::u, Grid::cell);
         let mut logp = vec![0.0_f64; UNDERREPORT_BLOCK_SDS.len() * EI0_STEPS * n_u];
         let mut best = f64::NEG_INFINITY;
         let mut inv_ln = vec![(0.0_f64, 0.0_f64); blocks.len()];
